@@ -1,0 +1,144 @@
+"""What a series holds: steps, times, mesh, fields (the ``inspect`` command)."""
+
+from __future__ import annotations
+
+import os
+
+import numpy as np
+
+from .io import Series
+
+__all__ = ["describe_series", "format_description"]
+
+#: a series with at most this many cell-steps is scanned whole; a larger one at its first and last step
+FULL_SCAN_CELL_STEPS = 5_000_000
+
+
+def describe_series(path, *, scan: str = "auto") -> dict:
+    """Describe a series.
+
+    Parameters
+    ----------
+    path : str or os.PathLike or Series
+    scan : {'auto', 'all', 'first'}
+        Which steps field statistics come from: every step, the first, or
+        (``auto``) every step of a small series and the first and last of a large one.
+
+    Returns
+    -------
+    dict
+        JSON-ready: ``path, kind, steps, times, time_origin, points, cells,
+        cell_types, boundary_cell_types, dimension, bounds, cell_size, mesh_changes,
+        scanned_steps, fields`` (each field: ``name, location, components, min, max,
+        nonfinite``).
+    """
+    series = path if isinstance(path, Series) else Series(path)
+    n = len(series)
+    first = series.read(0)
+    mesh = first.mesh
+    if scan == "all":
+        indices = list(range(n))
+    elif scan == "first":
+        indices = [0]
+    elif n * mesh.n_cells <= FULL_SCAN_CELL_STEPS:
+        indices = list(range(n))
+    else:
+        indices = sorted({0, n - 1})
+    stats: dict = {}
+    meshes = {mesh.signature}
+    for i in indices:
+        step = first if i == 0 else series.read(i)
+        meshes.add(step.mesh.signature)
+        for location, data in (("point", step.fields.point_data), ("cell", step.fields.cell_data)):
+            for name, values in data.items():
+                _accumulate(stats, name, location, np.asarray(values))
+    sizes = mesh.cell_sizes
+    desc = {
+        "path": os.fspath(series.path),
+        "kind": series.kind,
+        "steps": n,
+        "times": [float(t) for t in series.times],
+        "time_origin": "+".join(series.time_origins),
+        "points": int(mesh.n_points),
+        "cells": int(mesh.n_cells),
+        "cell_types": {k: int(v) for k, v in mesh.cell_type_counts.items()},
+        "boundary_cell_types": {k: int(v) for k, v in mesh.boundary_type_counts.items()},
+        "dimension": int(mesh.dimension),
+        "bounds": mesh.bounds.tolist(),
+        "total_measure": float(mesh.total_measure),
+        "regular_grid": (list(mesh.regular_grid.cell_shape) if mesh.regular_grid is not None else None),
+        "cell_size": {"min": float(sizes.min()), "median": float(np.median(sizes)),
+                      "max": float(sizes.max())},
+        "inverted_cells": int(mesh.inverted_cells),
+        "degenerate_cells": int(mesh.degenerate_cells),
+        "mesh_changes": len(meshes) > 1,
+        "scanned_steps": indices,
+        "fields": [stats[k] for k in sorted(stats)],
+    }
+    series.close()
+    return desc
+
+
+def _accumulate(stats: dict, name: str, location: str, values: np.ndarray) -> None:
+    key = f"{location}:{name}"
+    comps = 1 if values.ndim == 1 else int(np.prod(values.shape[1:]))
+    numeric = np.issubdtype(values.dtype, np.number)
+    entry = stats.setdefault(key, {"name": name, "location": location, "components": comps,
+                                   "min": None, "max": None, "nonfinite": 0})
+    if not numeric or values.size == 0:
+        return
+    v = values.astype(np.float64, copy=False)
+    finite = np.isfinite(v)
+    entry["nonfinite"] += int(v.size - np.count_nonzero(finite))
+    if finite.any():
+        if comps > 1:
+            mag = np.linalg.norm(np.where(finite, v, 0).reshape(v.shape[0], -1), axis=1)
+            lo, hi = float(mag.min()), float(mag.max())
+            entry["magnitude"] = True
+        else:
+            lo, hi = float(v[finite].min()), float(v[finite].max())
+        entry["min"] = lo if entry["min"] is None else min(entry["min"], lo)
+        entry["max"] = hi if entry["max"] is None else max(entry["max"], hi)
+
+
+def format_description(desc: dict) -> str:
+    """Human-readable text of :func:`describe_series`."""
+    times = desc["times"]
+    lines = [f"series      {desc['path']} ({desc['kind']})",
+             f"steps       {desc['steps']}"
+             + (f", time {times[0]:g} to {times[-1]:g}" if times else "")
+             + f" (time from: {_origin_words(desc['time_origin'])})",
+             f"mesh        {desc['dimension']}D, {desc['points']} points, {desc['cells']} cells"
+             + (" (mesh changes between steps)" if desc["mesh_changes"] else ""),
+             "cell types  " + ", ".join(f"{k} {v}" for k, v in desc["cell_types"].items())]
+    if desc["boundary_cell_types"]:
+        lines.append("not analysed " + ", ".join(f"{k} {v}" for k, v in desc["boundary_cell_types"].items())
+                     + " (lower-dimensional cells)")
+    if desc["regular_grid"]:
+        lines.append("grid        regular, " + " x ".join(str(n) for n in desc["regular_grid"]) + " cells")
+    lo, hi = desc["bounds"]
+    lines.append("bounds      " + "  ".join(f"{a} [{l:.6g}, {h:.6g}]" for a, l, h in zip("xyz", lo, hi)))
+    cs = desc["cell_size"]
+    word = "area" if desc["dimension"] == 2 else "volume"
+    lines.append(f"domain      {word} {desc['total_measure']:.6g}; cell size min {cs['min']:.4g}, "
+                 f"median {cs['median']:.4g}, max {cs['max']:.4g}")
+    if desc["inverted_cells"] or desc["degenerate_cells"]:
+        lines.append(f"warning     {desc['inverted_cells']} inverted and {desc['degenerate_cells']} "
+                     "zero-size cells")
+    scanned = desc["scanned_steps"]
+    label = "all steps" if len(scanned) == desc["steps"] else "steps " + ", ".join(map(str, scanned))
+    lines.append(f"fields      ({label})")
+    for f in desc["fields"]:
+        rng = "no numbers" if f["min"] is None else f"min {f['min']:.6g}, max {f['max']:.6g}"
+        if f.get("magnitude"):
+            rng += " (magnitude)"
+        bad = f", {f['nonfinite']} NaN/Inf" if f["nonfinite"] else ""
+        lines.append(f"  {f['name']:<16} on {f['location']}s, {f['components']} component"
+                     f"{'s' if f['components'] != 1 else ''}, {rng}{bad}")
+    return "\n".join(lines)
+
+
+def _origin_words(origin: str) -> str:
+    words = {"xdmf": "XDMF Time", "file": "time value in each file", "listing": "step listing",
+             "index": "step index (no times stored)"}
+    return " + ".join(words.get(o, o) for o in origin.split("+"))

@@ -1,0 +1,145 @@
+"""Exception and warning hierarchy of phasegauge.
+
+Every error the library raises on purpose derives from :class:`PhasegaugeError`.
+The concrete errors also inherit the matching built-in exception, so callers
+that catch ``ValueError`` or ``FileNotFoundError`` keep working.
+
+Each error carries three parts that the command line joins into one line:
+
+* ``where``: the file and, for a series, the step (``"run_0003.vtu, step 3"``),
+* ``what``: what was expected and what was found,
+* ``fix``: what the user can do about it.
+
+All errors pickle (they cross process boundaries in parallel runs).
+"""
+
+from __future__ import annotations
+
+__all__ = [
+    "PhasegaugeError",
+    "InputError",
+    "InputFileNotFound",
+    "UnreadableFileError",
+    "UnsupportedMeshError",
+    "FieldNotFoundError",
+    "FieldShapeError",
+    "SeriesError",
+    "OptionError",
+    "OutputError",
+    "AnalysisError",
+    "PhasegaugeWarning",
+    "RangeWarning",
+    "NonFiniteWarning",
+    "SkippedStepWarning",
+    "ResolutionWarning",
+]
+
+
+class PhasegaugeError(Exception):
+    """Root of all phasegauge errors.
+
+    Parameters
+    ----------
+    what : str
+        What was expected and what was found.
+    where : str, optional
+        The file and step concerned.
+    fix : str, optional
+        What the user can do.
+    """
+
+    #: exit status the command line uses for this error (2: bad input, 1: failure inside)
+    exit_status = 2
+
+    def __init__(self, what: str, *, where: str = "", fix: str = ""):
+        self.what = str(what)
+        self.where = str(where)
+        self.fix = str(fix)
+        super().__init__(self.one_line())
+
+    def one_line(self) -> str:
+        """The message as one line: ``where: what; fix``."""
+        text = self.what
+        if self.where:
+            text = f"{self.where}: {text}"
+        if self.fix:
+            text = f"{text}; {self.fix}"
+        return " ".join(text.split())
+
+    def with_where(self, where: str) -> "PhasegaugeError":
+        """Return a copy of this error with ``where`` set (when it was empty)."""
+        if self.where:
+            return self
+        return type(self)(self.what, where=where, fix=self.fix)
+
+    def __reduce__(self):
+        return (_rebuild, (type(self), self.what, self.where, self.fix))
+
+    def __str__(self) -> str:
+        return self.one_line()
+
+
+def _rebuild(cls, what, where, fix):
+    return cls(what, where=where, fix=fix)
+
+
+class InputError(PhasegaugeError, ValueError):
+    """The input files or their content are not what the tool needs."""
+
+
+class InputFileNotFound(PhasegaugeError, FileNotFoundError):
+    """An input path does not exist."""
+
+
+class UnreadableFileError(InputError):
+    """A file exists but cannot be read as a mesh (truncated, wrong format, empty)."""
+
+
+class UnsupportedMeshError(InputError):
+    """The mesh holds cells or a layout the tool does not handle."""
+
+
+class FieldNotFoundError(PhasegaugeError, KeyError):
+    """The named field is not in the step."""
+
+
+class FieldShapeError(InputError):
+    """The field has the wrong shape (a vector where a scalar is needed, wrong length)."""
+
+
+class SeriesError(InputError):
+    """The series is inconsistent: missing steps, times not increasing, mesh changes."""
+
+
+class OptionError(PhasegaugeError, ValueError):
+    """An option or recipe entry is invalid."""
+
+
+class OutputError(PhasegaugeError, OSError):
+    """The output cannot be written (exists, not writable)."""
+
+
+class AnalysisError(PhasegaugeError, RuntimeError):
+    """An analysis failed on valid input (a failure inside the tool)."""
+
+    exit_status = 1
+
+
+class PhasegaugeWarning(UserWarning):
+    """Root of phasegauge warnings."""
+
+
+class RangeWarning(PhasegaugeWarning):
+    """The field's values do not fit the given range."""
+
+
+class NonFiniteWarning(PhasegaugeWarning):
+    """The field holds NaN or Inf values (kept out of integrals)."""
+
+
+class SkippedStepWarning(PhasegaugeWarning):
+    """A step of a series was skipped."""
+
+
+class ResolutionWarning(PhasegaugeWarning):
+    """The interface or a droplet is resolved by too few cells."""

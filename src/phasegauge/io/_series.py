@@ -1,0 +1,432 @@
+"""Series discovery: what steps a path holds, in what order, at what times.
+
+A series path is one of
+
+* one mesh file (``.vtu``, ``.vtk``, ``.xdmf``/``.xmf``): one step, or every step
+  of an XDMF temporal collection;
+* a folder: every mesh file in it, in natural order (``step_2`` before ``step_10``);
+* a glob pattern (quoted on the command line): the matching mesh files, natural order;
+* a step listing: a text file of ``time,path`` lines (see :func:`read_listing`).
+
+The time of a step comes from the first of: the XDMF ``Time`` element, a
+one-value ``TimeValue`` array in the file's field data, the listing, the step
+index. :attr:`StepInfo.time_origin` says which.
+"""
+
+from __future__ import annotations
+
+import glob as globmod
+import os
+import re
+import warnings
+import xml.etree.ElementTree as ET
+from dataclasses import dataclass
+
+import numpy as np
+
+from ..errors import (InputFileNotFound, SeriesError, UnreadableFileError)
+from ..mesh import Mesh
+from ._meshio_adapter import MESH_SUFFIXES, StepFields, mesh_and_fields, read_meshio
+
+__all__ = ["Series", "StepInfo", "Step", "open_series", "natural_key", "read_listing",
+           "LISTING_SUFFIXES"]
+
+#: suffixes taken as a step listing
+LISTING_SUFFIXES = (".steps", ".txt", ".csv", ".list")
+
+TIME_ARRAY_NAMES = ("TimeValue", "TIME", "time", "Time")
+
+_XINCLUDE = "{http://www.w3.org/2001/XInclude}include"
+
+
+def natural_key(text: str):
+    """Sort key that orders embedded numbers by value: ``step_2`` before ``step_10``."""
+    parts = re.split(r"(\d+)", os.path.basename(text))
+    return [(0, int(p)) if p.isdigit() else (1, p.lower()) for p in parts] + [(2, text)]
+
+
+@dataclass(frozen=True)
+class StepInfo:
+    """Where one step comes from.
+
+    Attributes
+    ----------
+    index : int
+        Position in the series, from 0.
+    time : float
+        Time of the step, in the solver's time units.
+    time_origin : {'xdmf', 'file', 'listing', 'index'}
+        Where the time came from.
+    path : str
+        The file holding the step.
+    grid : int or None
+        Index of the grid in an XDMF temporal collection.
+    """
+
+    index: int
+    time: float
+    time_origin: str
+    path: str
+    grid: int | None = None
+
+    @property
+    def where(self) -> str:
+        name = os.path.basename(self.path)
+        return f"{name}, step {self.index}"
+
+
+@dataclass
+class Step:
+    """One step read into the model: its mesh, its fields and where it came from."""
+
+    info: StepInfo
+    mesh: Mesh
+    fields: StepFields
+
+    @property
+    def time(self) -> float:
+        return self.info.time
+
+    @property
+    def index(self) -> int:
+        return self.info.index
+
+
+def read_listing(path: str) -> list[tuple[float, str]]:
+    """Read a step listing.
+
+    The format is plain text, one step a line: ``time,path``. Paths are relative
+    to the listing's folder unless absolute. Blank lines and lines starting with
+    ``#`` are ignored; a first line ``time,path`` is taken as a header.
+
+    Raises
+    ------
+    SeriesError
+        A line that is not ``time,path``, or no steps.
+    """
+    base = os.path.dirname(os.path.abspath(path))
+    rows = []
+    with open(path, encoding="utf-8", errors="replace") as handle:
+        for number, line in enumerate(handle, start=1):
+            text = line.strip()
+            if not text or text.startswith("#"):
+                continue
+            if number == 1 and text.replace(" ", "").lower() == "time,path":
+                continue
+            parts = [p.strip() for p in text.split(",", 1)]
+            try:
+                if len(parts) != 2 or not parts[1]:
+                    raise ValueError
+                time = float(parts[0])
+            except ValueError:
+                raise SeriesError(f"line {number} is not 'time,path': {text[:60]!r}", where=path,
+                                  fix="write one 'time,path' pair a line") from None
+            rows.append((time, parts[1] if os.path.isabs(parts[1]) else os.path.join(base, parts[1])))
+    if not rows:
+        raise SeriesError("the listing holds no steps", where=path, fix="add 'time,path' lines")
+    return rows
+
+
+def _is_mesh_file(name: str) -> bool:
+    return name.lower().endswith(MESH_SUFFIXES)
+
+
+def _xdmf_collection(path: str):
+    """Return the list of temporal grids (Elements) or None for a plain XDMF file."""
+    try:
+        root = ET.parse(path).getroot()
+    except (ET.ParseError, OSError) as exc:
+        raise UnreadableFileError(f"not a readable XDMF file ({exc})", where=path,
+                                  fix="check that the file is complete XML") from None
+    for grid in root.iter("Grid"):
+        if grid.get("GridType") == "Collection" and grid.get("CollectionType") == "Temporal":
+            return [g for g in grid if g.tag == "Grid"]
+    return None
+
+
+def _peek_time(path: str) -> float | None:
+    """Time value stored in a file's field data, read cheaply where possible."""
+    lower = path.lower()
+    try:
+        if lower.endswith(".vtk"):
+            return _peek_legacy_time(path)
+        if lower.endswith(".vtu"):
+            return _peek_vtu_time(path)
+    except (OSError, ValueError):
+        return None
+    return None
+
+
+def _peek_legacy_time(path: str) -> float | None:
+    with open(path, "rb") as handle:
+        head = handle.read(1 << 16)
+    match = re.search(rb"\n(?:TimeValue|TIME)\s+1\s+1\s+(double|float)\s*\n", head)
+    if not match:
+        return None
+    binary = b"\nBINARY" in head[:1024].upper()
+    rest = head[match.end():]
+    if binary:
+        size = 8 if match.group(1) == b"double" else 4
+        return float(np.frombuffer(rest[:size], dtype=">f8" if size == 8 else ">f4")[0])
+    return float(rest.split()[0])
+
+
+def _peek_vtu_time(path: str) -> float | None:
+    with open(path, "rb") as handle:
+        head = handle.read(1 << 16)
+    start = head.find(b"<FieldData")
+    piece = head.find(b"<Piece")
+    if start < 0 or (0 <= piece < start):
+        return None
+    match = re.search(rb'<DataArray[^>]*Name="(TimeValue|TIME|time|Time)"[^>]*>', head[start:])
+    if not match:
+        return None
+    tag = match.group(0)
+    if b'format="ascii"' in tag:
+        body = head[start + match.end():].split(b"<", 1)[0]
+        return float(body.split()[0])
+    return _TIME_FROM_FULL_READ
+
+
+_TIME_FROM_FULL_READ = object()
+
+
+class Series:
+    """An ordered list of steps behind a path, read one step at a time.
+
+    Parameters
+    ----------
+    path : str or os.PathLike
+        A mesh file, XDMF time collection, folder, glob pattern or step listing.
+
+    Attributes
+    ----------
+    kind : {'file', 'collection', 'folder', 'glob', 'listing'}
+    steps : list of StepInfo
+
+    Raises
+    ------
+    InputFileNotFound
+        The path, or a file a listing names, does not exist.
+    SeriesError
+        No mesh files found, or a listing line is malformed.
+
+    Notes
+    -----
+    The mesh of the last step read is kept; a step whose points and cells are
+    equal reuses it, so work cached on the mesh (measures, adjacency) is done
+    once per series while the topology stays the same.
+    """
+
+    def __init__(self, path):
+        self.path = os.fspath(path)
+        self._mesh: Mesh | None = None
+        self._xdmf_readers: dict = {}
+        self.steps = self._discover()
+
+    # --------------------------------------------------------------- discovery
+    def _discover(self) -> list[StepInfo]:
+        path = self.path
+        if os.path.isdir(path):
+            files = sorted((os.path.join(path, f) for f in os.listdir(path) if _is_mesh_file(f)),
+                           key=natural_key)
+            if not files:
+                raise SeriesError("the folder holds no .vtu, .vtk, .xdmf or .xmf files", where=path,
+                                  fix="give a folder of mesh files, a mesh file or a step listing")
+            self.kind = "folder"
+            return self._from_files(files)
+        if any(ch in path for ch in "*?[") and not os.path.exists(path):
+            files = sorted((f for f in globmod.glob(path) if _is_mesh_file(f)), key=natural_key)
+            if not files:
+                raise SeriesError("the pattern matches no mesh files", where=path,
+                                  fix="check the pattern; quote it so the shell does not expand it")
+            self.kind = "glob"
+            return self._from_files(files)
+        if not os.path.exists(path):
+            raise InputFileNotFound("file not found", where=path,
+                                    fix="check the path (quote globs so the shell does not expand them)")
+        if path.lower().endswith(LISTING_SUFFIXES):
+            self.kind = "listing"
+            rows = read_listing(path)
+            for _, file in rows:
+                if not os.path.exists(file):
+                    raise InputFileNotFound("the listing names a file that does not exist",
+                                            where=f"{path} -> {file}", fix="fix the listing line or restore the file")
+            return [StepInfo(i, t, "listing", f) for i, (t, f) in enumerate(rows)]
+        if path.lower().endswith((".xdmf", ".xmf")):
+            grids = _xdmf_collection(path)
+            if grids is not None:
+                self.kind = "collection"
+                steps = []
+                for i, grid in enumerate(grids):
+                    node = grid.find("Time")
+                    if node is not None and node.get("Value") is not None:
+                        steps.append(StepInfo(i, float(node.get("Value")), "xdmf", path, grid=i))
+                    else:
+                        steps.append(StepInfo(i, float(i), "index", path, grid=i))
+                if not steps:
+                    raise SeriesError("the XDMF time collection is empty", where=path,
+                                      fix="write at least one step")
+                return steps
+        if not _is_mesh_file(path):
+            raise UnreadableFileError(
+                "is neither a mesh file (.vtu, .vtk, .xdmf, .xmf) nor a step listing "
+                "(.steps, .txt, .csv, .list)", where=path,
+                fix="give a mesh file, a folder, a quoted glob or a 'time,path' listing")
+        self.kind = "file"
+        return self._from_files([path])
+
+    def _from_files(self, files: list[str]) -> list[StepInfo]:
+        steps = []
+        for i, f in enumerate(files):
+            t = _peek_time(f)
+            if t is _TIME_FROM_FULL_READ:
+                raw = read_meshio(f)
+                t = _time_from_field_data(raw.field_data)
+            if t is None:
+                steps.append(StepInfo(i, float(i), "index", f))
+            else:
+                steps.append(StepInfo(i, float(t), "file", f))
+        return steps
+
+    # ------------------------------------------------------------------ access
+    def __len__(self) -> int:
+        return len(self.steps)
+
+    def __iter__(self):
+        for i in range(len(self.steps)):
+            yield self.read(i)
+
+    @property
+    def times(self) -> np.ndarray:
+        """Times of all steps, shape (n_steps,)."""
+        return np.array([s.time for s in self.steps])
+
+    @property
+    def time_origins(self) -> list:
+        """Distinct origins of the step times, in order of first use."""
+        seen = []
+        for s in self.steps:
+            if s.time_origin not in seen:
+                seen.append(s.time_origin)
+        return seen
+
+    @property
+    def files(self) -> list:
+        """Distinct files of the series, in order."""
+        out = []
+        for s in self.steps:
+            if s.path not in out:
+                out.append(s.path)
+        return out
+
+    def read(self, index: int) -> Step:
+        """Read step ``index`` (mesh and fields)."""
+        info = self.steps[index]
+        if info.grid is not None:
+            mesh, fields = self._read_collection_step(info)
+        else:
+            raw = read_meshio(info.path)
+            mesh, fields = mesh_and_fields(raw, info.path, previous=self._mesh)
+            if info.time_origin == "index":
+                t = _time_from_field_data(fields.field_data)
+                if t is not None:
+                    info = StepInfo(info.index, t, "file", info.path)
+                    self.steps[index] = info
+        self._mesh = mesh
+        return Step(info, mesh, fields)
+
+    def read_mesh(self, index: int = 0) -> Mesh:
+        """The mesh of step ``index`` (read once and reused while the topology stays)."""
+        return self.read(index).mesh
+
+    def _collection_reader(self, path: str):
+        import meshio
+
+        from ._meshio_adapter import _register_vtk_extras
+
+        _register_vtk_extras()
+        reader = self._xdmf_readers.get(path)
+        if reader is None:
+            try:
+                reader = meshio.xdmf.TimeSeriesReader(path)
+            except Exception as exc:
+                raise UnreadableFileError(f"cannot be read as an XDMF time series ({exc})", where=path,
+                                          fix="check the XDMF file and the HDF5 files it names") from None
+            reader._phasegauge_mesh_key = None
+            self._xdmf_readers[path] = reader
+        return reader
+
+    def _read_collection_step(self, info: StepInfo):
+        reader = self._collection_reader(info.path)
+        where = f"{info.path}, step {info.index}"
+        grid = reader.collection[info.grid]
+        own_mesh = any(child.tag in ("Topology", "Geometry") for child in grid)
+        key = info.grid if own_mesh else "shared"
+        try:
+            with warnings.catch_warnings():
+                warnings.simplefilter("ignore")
+                if reader._phasegauge_mesh_key != key:
+                    if own_mesh:
+                        reader.mesh_grid = grid
+                    reader._points, _ = reader.read_points_cells()
+                    reader._phasegauge_mesh_key = key
+                _, point_data, cell_data = _read_data_any_time(reader, info.grid)
+        except FileNotFoundError as exc:
+            raise InputFileNotFound(f"a data file the XDMF names is missing ({exc.filename or exc})",
+                                    where=where, fix="restore the HDF5 file next to the XDMF file") from None
+        except Exception as exc:
+            raise UnreadableFileError(f"cannot read the step's data ({_short(exc)})", where=where,
+                                      fix="check that the HDF5 file is complete (not truncated)") from None
+        import meshio
+
+        raw = meshio.Mesh(reader._points, reader.cells, point_data=point_data, cell_data=cell_data)
+        return mesh_and_fields(raw, where, previous=self._mesh)
+
+    def close(self) -> None:
+        """Close HDF5 files held open by XDMF readers."""
+        for reader in self._xdmf_readers.values():
+            for f in reader.hdf5_files.values():
+                try:
+                    f.close()
+                except Exception:
+                    pass
+        self._xdmf_readers.clear()
+
+    def __enter__(self):
+        return self
+
+    def __exit__(self, *exc):
+        self.close()
+
+    def __getstate__(self):
+        state = self.__dict__.copy()
+        state["_xdmf_readers"] = {}
+        state["_mesh"] = None
+        return state
+
+
+def _read_data_any_time(reader, k: int):
+    grid = reader.collection[k]
+    if grid.find("Time") is None:
+        ET.SubElement(grid, "Time", Value=str(float(k)))
+    return reader.read_data(k)
+
+
+def _short(exc: BaseException) -> str:
+    text = " ".join(str(exc).split()) or type(exc).__name__
+    return text if len(text) <= 120 else text[:117] + "..."
+
+
+def _time_from_field_data(field_data: dict) -> float | None:
+    for name in TIME_ARRAY_NAMES:
+        if name in field_data:
+            value = np.asarray(field_data[name]).ravel()
+            if value.size >= 1 and np.isfinite(value[0]):
+                return float(value[0])
+    return None
+
+
+def open_series(path) -> Series:
+    """Open a series (see :class:`Series`)."""
+    return Series(path)

@@ -1,0 +1,767 @@
+"""The one in-memory mesh model every reader converts to.
+
+A :class:`Mesh` holds points (always with three coordinates) and the cells of
+its highest topological dimension, grouped in blocks of one cell type. Cells of
+lower dimension written beside the volume cells (boundary lines or faces) are
+kept apart in :attr:`Mesh.boundary_blocks`: shown by ``inspect``, never used by
+an analysis.
+
+Everything that depends on the mesh alone (cell measures, centroids, face
+adjacency, edges, the regular-grid layout) is computed on first use and cached
+on the object, so a series whose topology does not change pays for it once.
+
+Cell numbering: cells are numbered block after block in the order the file
+gives them; cell data of every analysis is an array of shape ``(n_cells,)`` in
+that order.
+"""
+
+from __future__ import annotations
+
+import hashlib
+from dataclasses import dataclass, field
+from functools import cached_property
+
+import numpy as np
+
+from .errors import UnsupportedMeshError
+
+__all__ = ["Mesh", "CellBlock", "RegularGrid", "CELL_DIMENSION", "LINEAR_CORNERS"]
+
+#: topological dimension of every cell type the model accepts
+CELL_DIMENSION = {
+    "vertex": 0,
+    "line": 1,
+    "triangle": 2,
+    "quad": 2,
+    "polygon": 2,
+    "tetra": 3,
+    "hexahedron": 3,
+    "wedge": 3,
+    "pyramid": 3,
+}
+
+#: higher-order and VTK-specific types mapped to a linear type (corner nodes, reordered)
+LINEAR_CORNERS = {
+    "line3": ("line", [0, 1]),
+    "triangle6": ("triangle", [0, 1, 2]),
+    "triangle7": ("triangle", [0, 1, 2]),
+    "quad8": ("quad", [0, 1, 2, 3]),
+    "quad9": ("quad", [0, 1, 2, 3]),
+    "tetra10": ("tetra", [0, 1, 2, 3]),
+    "hexahedron20": ("hexahedron", list(range(8))),
+    "hexahedron24": ("hexahedron", list(range(8))),
+    "hexahedron27": ("hexahedron", list(range(8))),
+    "wedge15": ("wedge", list(range(6))),
+    "wedge18": ("wedge", list(range(6))),
+    "pyramid13": ("pyramid", list(range(5))),
+    "pyramid14": ("pyramid", list(range(5))),
+    # VTK pixel and voxel number their corners lexicographically, not around the face
+    "pixel": ("quad", [0, 1, 3, 2]),
+    "voxel": ("hexahedron", [0, 1, 3, 2, 4, 5, 7, 6]),
+}
+
+# local faces (3D) or edges (2D) that adjacency is built from, VTK corner order
+_FACES = {
+    "triangle": [(0, 1), (1, 2), (2, 0)],
+    "quad": [(0, 1), (1, 2), (2, 3), (3, 0)],
+    "tetra": [(0, 1, 2), (0, 1, 3), (1, 2, 3), (0, 2, 3)],
+    "hexahedron": [(0, 3, 2, 1), (4, 5, 6, 7), (0, 1, 5, 4), (1, 2, 6, 5), (2, 3, 7, 6), (3, 0, 4, 7)],
+    "wedge": [(0, 2, 1), (3, 4, 5), (0, 1, 4, 3), (1, 2, 5, 4), (2, 0, 3, 5)],
+    "pyramid": [(0, 3, 2, 1), (0, 1, 4), (1, 2, 4), (2, 3, 4), (3, 0, 4)],
+}
+
+_EDGES = {
+    "triangle": [(0, 1), (1, 2), (2, 0)],
+    "quad": [(0, 1), (1, 2), (2, 3), (3, 0)],
+    "tetra": [(0, 1), (1, 2), (2, 0), (0, 3), (1, 3), (2, 3)],
+    "hexahedron": [(0, 1), (1, 2), (2, 3), (3, 0), (4, 5), (5, 6), (6, 7), (7, 4),
+                   (0, 4), (1, 5), (2, 6), (3, 7)],
+    "wedge": [(0, 1), (1, 2), (2, 0), (3, 4), (4, 5), (5, 3), (0, 3), (1, 4), (2, 5)],
+    "pyramid": [(0, 1), (1, 2), (2, 3), (3, 0), (0, 4), (1, 4), (2, 4), (3, 4)],
+}
+
+
+@dataclass(frozen=True)
+class CellBlock:
+    """Cells of one type.
+
+    Parameters
+    ----------
+    cell_type : str
+        One of ``triangle, quad, polygon, tetra, hexahedron, wedge, pyramid``
+        (or ``line``/``vertex`` for boundary blocks).
+    connectivity : ndarray of shape (n, k), int64
+        Point indices of each cell in VTK corner order.
+    """
+
+    cell_type: str
+    connectivity: np.ndarray
+
+    def __len__(self) -> int:
+        return int(self.connectivity.shape[0])
+
+
+@dataclass(frozen=True)
+class RegularGrid:
+    """Layout of a mesh that is a rectilinear grid of quads or hexahedra.
+
+    Attributes
+    ----------
+    axes : tuple of ndarray
+        Point coordinates along each grid axis (2 in 2D, 3 in 3D), increasing.
+    mesh_axes : tuple of int
+        Which of the mesh's x, y, z coordinates each grid axis is.
+    cell_index : ndarray of shape (n_cells,)
+        Flat C-order index of each mesh cell in the array of shape ``cell_shape``.
+    point_index : ndarray of shape (n_points,)
+        Flat C-order index of each mesh point in the array of shape ``point_shape``.
+    uniform : bool
+        True when every axis has one spacing.
+    """
+
+    axes: tuple
+    mesh_axes: tuple
+    cell_index: np.ndarray
+    point_index: np.ndarray
+    uniform: bool
+
+    @property
+    def point_shape(self) -> tuple:
+        return tuple(len(a) for a in self.axes)
+
+    @property
+    def cell_shape(self) -> tuple:
+        return tuple(len(a) - 1 for a in self.axes)
+
+    @property
+    def spacing(self) -> tuple:
+        """Mean spacing along each axis."""
+        return tuple(float(np.mean(np.diff(a))) for a in self.axes)
+
+    def cells_to_array(self, values: np.ndarray, fill=np.nan) -> np.ndarray:
+        """Scatter per-cell values into an array of shape ``cell_shape``."""
+        out = np.full(int(np.prod(self.cell_shape)), fill, dtype=np.result_type(values, np.float64))
+        out[self.cell_index] = values
+        return out.reshape(self.cell_shape)
+
+    def points_to_array(self, values: np.ndarray, fill=np.nan) -> np.ndarray:
+        """Scatter per-point values into an array of shape ``point_shape``."""
+        out = np.full(int(np.prod(self.point_shape)), fill, dtype=np.result_type(values, np.float64))
+        out[self.point_index] = values
+        return out.reshape(self.point_shape)
+
+
+def _as_blocks(cells) -> list[CellBlock]:
+    blocks = []
+    for item in cells:
+        if isinstance(item, CellBlock):
+            blocks.append(item)
+            continue
+        if hasattr(item, "type") and hasattr(item, "data"):
+            cell_type, data = item.type, item.data
+        else:
+            cell_type, data = item
+        blocks.append(CellBlock(str(cell_type), data))
+    return blocks
+
+
+class Mesh:
+    """Points and cells of one mesh, with cached geometry and topology.
+
+    Parameters
+    ----------
+    points : array_like of shape (n_points, 2) or (n_points, 3)
+        Point coordinates, in mesh length units. 2D points get z = 0.
+    cells : sequence of CellBlock, meshio CellBlock or (type, connectivity)
+        All cell blocks of the file. Blocks of the highest topological
+        dimension become the analysed cells; lower-dimensional blocks are kept
+        as :attr:`boundary_blocks`.
+
+    Raises
+    ------
+    UnsupportedMeshError
+        No cells, a cell type the model does not handle, a 2D mesh that is not
+        flat, or connectivity that points outside the point array.
+
+    Notes
+    -----
+    Quadratic cells are reduced to their corner nodes (their curved geometry is
+    made straight); VTK pixels and voxels become quads and hexahedra. The
+    attribute :attr:`kept_blocks` records which of the input blocks became
+    analysed cells, in order, so per-block cell data can be joined the same way.
+
+    Examples
+    --------
+    >>> import numpy as np
+    >>> m = Mesh(np.array([[0, 0], [1, 0], [0, 1]]), [("triangle", np.array([[0, 1, 2]]))])
+    >>> float(m.cell_measures[0])
+    0.5
+    """
+
+    def __init__(self, points, cells):
+        pts = np.asarray(points, dtype=np.float64)
+        if pts.ndim != 2 or pts.shape[1] not in (1, 2, 3):
+            raise UnsupportedMeshError(
+                f"points must have shape (n, 2) or (n, 3), found {pts.shape}",
+                fix="check the file's point coordinates")
+        if pts.shape[1] < 3:
+            pts = np.hstack([pts, np.zeros((pts.shape[0], 3 - pts.shape[1]))])
+        self.points = np.ascontiguousarray(pts)
+        raw = _as_blocks(cells)
+        converted = []
+        for index, block in enumerate(raw):
+            cell_type = block.cell_type
+            data = block.connectivity
+            if cell_type in LINEAR_CORNERS:
+                cell_type, corners = LINEAR_CORNERS[cell_type]
+                data = np.asarray(data)[:, corners]
+            if cell_type.startswith("polygon"):
+                cell_type = "polygon"
+            if cell_type not in CELL_DIMENSION:
+                raise UnsupportedMeshError(
+                    f"cell type '{block.cell_type}' is not supported",
+                    fix="write the mesh with linear cells (triangle, quad, polygon, tetra, "
+                        "hexahedron, wedge, pyramid)")
+            data = np.asarray(data, dtype=np.int64)
+            if data.ndim != 2:
+                raise UnsupportedMeshError(f"cells of type '{cell_type}' have ragged connectivity",
+                                           fix="split them into blocks of equal size")
+            converted.append((index, CellBlock(cell_type, np.ascontiguousarray(data))))
+        converted = [(i, b) for i, b in converted if len(b) > 0]
+        if not converted:
+            raise UnsupportedMeshError("the mesh has no cells",
+                                       fix="write the cells with the points (a point cloud cannot be analysed)")
+        self.dimension = max(CELL_DIMENSION[b.cell_type] for _, b in converted)
+        if self.dimension < 2:
+            raise UnsupportedMeshError(
+                f"the mesh has only {self.dimension}D cells (lines or vertices)",
+                fix="write the 2D or 3D cells of the domain")
+        self.blocks = [b for _, b in converted if CELL_DIMENSION[b.cell_type] == self.dimension]
+        self.kept_blocks = [i for i, b in converted if CELL_DIMENSION[b.cell_type] == self.dimension]
+        self.boundary_blocks = [b for _, b in converted if CELL_DIMENSION[b.cell_type] < self.dimension]
+        self.n_input_blocks = len(raw)
+        n_points = self.points.shape[0]
+        for block in self.blocks + self.boundary_blocks:
+            conn = block.connectivity
+            if conn.size and (conn.min() < 0 or conn.max() >= n_points):
+                raise UnsupportedMeshError(
+                    f"{block.cell_type} cells refer to point {int(conn.max())} but the mesh has "
+                    f"{n_points} points", fix="the file is damaged; write it again")
+        sizes = [len(b) for b in self.blocks]
+        self.block_offsets = np.concatenate([[0], np.cumsum(sizes)]).astype(np.int64)
+        self.n_cells = int(self.block_offsets[-1])
+        self.n_points = n_points
+
+    # ------------------------------------------------------------------ basics
+    def __repr__(self) -> str:
+        types = ", ".join(f"{k}: {v}" for k, v in self.cell_type_counts.items())
+        return f"Mesh({self.dimension}D, {self.n_points} points, {self.n_cells} cells; {types})"
+
+    @cached_property
+    def cell_type_counts(self) -> dict:
+        """Number of analysed cells of each type."""
+        counts: dict = {}
+        for b in self.blocks:
+            counts[b.cell_type] = counts.get(b.cell_type, 0) + len(b)
+        return counts
+
+    @cached_property
+    def boundary_type_counts(self) -> dict:
+        """Number of lower-dimensional (boundary) cells of each type, not analysed."""
+        counts: dict = {}
+        for b in self.boundary_blocks:
+            counts[b.cell_type] = counts.get(b.cell_type, 0) + len(b)
+        return counts
+
+    @cached_property
+    def signature(self) -> str:
+        """Hash of points and connectivity: equal signatures mean the same mesh."""
+        h = hashlib.blake2b(digest_size=16)
+        h.update(self.points.tobytes())
+        for b in self.blocks + self.boundary_blocks:
+            h.update(b.cell_type.encode())
+            h.update(b.connectivity.tobytes())
+        return h.hexdigest()
+
+    def same_topology(self, points, blocks) -> bool:
+        """True when ``points`` and ``blocks`` (converted) describe this mesh."""
+        pts = np.asarray(points, dtype=np.float64)
+        if pts.shape[1] < 3:
+            pts = np.hstack([pts, np.zeros((pts.shape[0], 3 - pts.shape[1]))])
+        if pts.shape != self.points.shape or not np.array_equal(pts, self.points):
+            return False
+        if len(blocks) != len(self.blocks):
+            return False
+        return all(a.cell_type == b.cell_type and np.array_equal(a.connectivity, b.connectivity)
+                   for a, b in zip(blocks, self.blocks))
+
+    @cached_property
+    def bounds(self) -> np.ndarray:
+        """``[[xmin, ymin, zmin], [xmax, ymax, zmax]]`` of the points used by cells."""
+        used = self.points[self.used_points]
+        return np.vstack([used.min(axis=0), used.max(axis=0)])
+
+    @cached_property
+    def used_points(self) -> np.ndarray:
+        """Indices of the points that belong to at least one analysed cell."""
+        return np.unique(np.concatenate([b.connectivity.ravel() for b in self.blocks]))
+
+    @cached_property
+    def cell_types(self) -> np.ndarray:
+        """Cell type name of every cell, shape (n_cells,)."""
+        return np.concatenate([np.full(len(b), b.cell_type, dtype=object) for b in self.blocks])
+
+    # ------------------------------------------------------------ plane of 2D
+    @cached_property
+    def plane_axes(self) -> tuple:
+        """For a 2D mesh, the two coordinate axes its plane spans (e.g. ``(0, 1)``).
+
+        Raises
+        ------
+        UnsupportedMeshError
+            When the 2D cells do not lie in a plane normal to x, y or z.
+        """
+        if self.dimension != 2:
+            return (0, 1, 2)
+        used = self.points[self.used_points]
+        extent = used.max(axis=0) - used.min(axis=0)
+        scale = max(float(extent.max()), 1e-300)
+        flat = [ax for ax in range(3) if extent[ax] <= 1e-9 * scale]
+        if not flat:
+            raise UnsupportedMeshError(
+                "the 2D cells do not lie in a plane normal to x, y or z",
+                fix="write 2D results in a coordinate plane (for example z = 0)")
+        normal = flat[-1] if len(flat) > 1 else flat[0]
+        if len(flat) > 1:
+            normal = 2 if 2 in flat else flat[0]
+        return tuple(ax for ax in range(3) if ax != normal)
+
+    @cached_property
+    def coordinates(self) -> np.ndarray:
+        """Point coordinates in the analysis space: (n_points, 2) in 2D, (n_points, 3) in 3D."""
+        return np.ascontiguousarray(self.points[:, list(self.plane_axes)])
+
+    # --------------------------------------------------------------- geometry
+    @cached_property
+    def _geometry(self):
+        dim = self.dimension
+        X = self.coordinates
+        signed = np.empty(self.n_cells)
+        cent = np.empty((self.n_cells, dim))
+        for block, start in zip(self.blocks, self.block_offsets[:-1]):
+            sl = slice(int(start), int(start) + len(block))
+            s, c = _block_geometry(block.cell_type, X[block.connectivity])
+            signed[sl] = s
+            cent[sl] = c
+        return signed, cent
+
+    @property
+    def signed_measures(self) -> np.ndarray:
+        """Signed cell areas (2D) or volumes (3D): negative for inverted cells."""
+        return self._geometry[0]
+
+    @cached_property
+    def cell_measures(self) -> np.ndarray:
+        """Cell areas (2D) or volumes (3D), shape (n_cells,), in length units squared or cubed.
+
+        Notes
+        -----
+        Exact for linear simplices and polygons; for quads and hexahedra the
+        determinant of the bilinear/trilinear map is integrated with 2-point
+        Gauss rules per direction, which is exact, so non-planar hexahedron
+        faces are handled; wedges use a degree-4 triangle rule times a 2-point
+        Gauss rule (exact); pyramids the mean of the two tetrahedral splits of
+        the base (exact for a bilinear base). 2D meshes whose cells are all
+        wound clockwise are accepted: measures are magnitudes.
+        """
+        return np.abs(self._geometry[0])
+
+    @cached_property
+    def inverted_cells(self) -> int:
+        """Number of cells whose orientation is opposite to the majority."""
+        s = self.signed_measures
+        majority = 1.0 if np.sum(s > 0) >= np.sum(s < 0) else -1.0
+        return int(np.sum(s * majority < 0))
+
+    @cached_property
+    def degenerate_cells(self) -> int:
+        """Number of cells with zero measure (to round-off)."""
+        m = self.cell_measures
+        scale = float(np.median(m)) if m.size else 0.0
+        return int(np.sum(m <= 1e-12 * scale))
+
+    @property
+    def cell_centroids(self) -> np.ndarray:
+        """Centroids (centres of area or volume), shape (n_cells, dimension)."""
+        return self._geometry[1]
+
+    @cached_property
+    def cell_sizes(self) -> np.ndarray:
+        """Characteristic cell length: measure ** (1 / dimension), shape (n_cells,)."""
+        return self.cell_measures ** (1.0 / self.dimension)
+
+    @cached_property
+    def total_measure(self) -> float:
+        """Domain area (2D) or volume (3D)."""
+        return float(self.cell_measures.sum())
+
+    # --------------------------------------------------------------- topology
+    @cached_property
+    def incidence(self):
+        """Sparse (n_cells, n_points) matrix, 1 where a point is a corner of a cell."""
+        from scipy import sparse
+
+        rows, cols = [], []
+        for block, start in zip(self.blocks, self.block_offsets[:-1]):
+            n, k = block.connectivity.shape
+            rows.append(np.repeat(np.arange(start, start + n), k))
+            cols.append(block.connectivity.ravel())
+        rows = np.concatenate(rows)
+        cols = np.concatenate(cols)
+        m = sparse.csr_matrix((np.ones(rows.size), (rows, cols)), shape=(self.n_cells, self.n_points))
+        m.data[:] = 1.0  # a corner repeated in a degenerate cell counts once
+        return m
+
+    @cached_property
+    def _faces(self):
+        """All cell faces (3D) or edges (2D), sorted corners padded with -1, and their cell."""
+        rows, owners = [], []
+        width = 4 if self.dimension == 3 else 2
+        for block, start in zip(self.blocks, self.block_offsets[:-1]):
+            conn = block.connectivity
+            n = len(block)
+            cell_ids = np.arange(start, start + n)
+            if block.cell_type == "polygon":
+                k = conn.shape[1]
+                local = [(i, (i + 1) % k) for i in range(k)]
+            else:
+                local = _FACES[block.cell_type]
+            for face in local:
+                f = np.full((n, width), -1, dtype=np.int64)
+                f[:, width - len(face):] = conn[:, list(face)]
+                rows.append(f)
+                owners.append(cell_ids)
+        faces = np.sort(np.concatenate(rows), axis=1)
+        owners = np.concatenate(owners)
+        return faces, owners
+
+    @cached_property
+    def face_pairs(self) -> np.ndarray:
+        """Pairs of cells sharing a face (3D) or an edge (2D), shape (n_pairs, 2).
+
+        Faces are matched by their corner points, so cells must share points
+        (a conforming mesh); faces with hanging nodes do not connect.
+        """
+        faces, owners = self._faces
+        order = np.lexsort(faces.T[::-1])
+        sf = faces[order]
+        same = np.all(sf[1:] == sf[:-1], axis=1)
+        idx = np.nonzero(same)[0]
+        pairs = np.stack([owners[order[idx]], owners[order[idx + 1]]], axis=1)
+        pairs = pairs[pairs[:, 0] != pairs[:, 1]]
+        return np.unique(np.sort(pairs, axis=1), axis=0) if pairs.size else pairs.reshape(0, 2)
+
+    @cached_property
+    def boundary_faces(self) -> tuple:
+        """Faces (3D) or edges (2D) owned by one cell only: ``(corners, cell)``.
+
+        ``corners`` has shape (n, 4) in 3D (triangles padded with -1 in front)
+        or (n, 2) in 2D.
+        """
+        faces, owners = self._faces
+        order = np.lexsort(faces.T[::-1])
+        sf = faces[order]
+        diff = np.any(sf[1:] != sf[:-1], axis=1)
+        first = np.concatenate([[True], diff])
+        last = np.concatenate([diff, [True]])
+        lone = first & last
+        return sf[lone], owners[order[lone]]
+
+    def adjacency(self, kind: str = "face"):
+        """Sparse symmetric (n_cells, n_cells) cell adjacency matrix.
+
+        Parameters
+        ----------
+        kind : {'face', 'point'}
+            ``face``: cells sharing an edge (2D) or a face (3D);
+            ``point``: cells sharing at least one point.
+        """
+        from scipy import sparse
+
+        if kind == "face":
+            p = self.face_pairs
+            data = np.ones(2 * len(p))
+            i = np.concatenate([p[:, 0], p[:, 1]])
+            j = np.concatenate([p[:, 1], p[:, 0]])
+            return sparse.csr_matrix((data, (i, j)), shape=(self.n_cells, self.n_cells))
+        if kind == "point":
+            a = self.incidence
+            m = (a @ a.T).tocsr()
+            m.setdiag(0)
+            m.eliminate_zeros()
+            m.data[:] = 1.0
+            return m
+        raise ValueError(f"adjacency kind must be 'face' or 'point', not {kind!r}")
+
+    @cached_property
+    def edges(self) -> np.ndarray:
+        """Unique edges of all cells as point pairs (lower index first), shape (n_edges, 2)."""
+        rows = []
+        for block in self.blocks:
+            conn = block.connectivity
+            if block.cell_type == "polygon":
+                k = conn.shape[1]
+                local = [(i, (i + 1) % k) for i in range(k)]
+            else:
+                local = _EDGES[block.cell_type]
+            for a, b in local:
+                rows.append(np.stack([conn[:, a], conn[:, b]], axis=1))
+        e = np.sort(np.concatenate(rows), axis=1)
+        e = e[e[:, 0] != e[:, 1]]
+        return np.unique(e, axis=0)
+
+    # ---------------------------------------------------------- regular grids
+    @cached_property
+    def regular_grid(self) -> RegularGrid | None:
+        """The grid layout when the mesh is a full rectilinear grid of quads or hexahedra, else None."""
+        wanted = "quad" if self.dimension == 2 else "hexahedron"
+        if any(b.cell_type != wanted for b in self.blocks):
+            return None
+        X = self.coordinates
+        used = self.used_points
+        if used.size != self.n_points:
+            return None
+        axes, idx = [], []
+        scale = float(np.ptp(X, axis=0).max()) or 1.0
+        tol = 1e-9 * scale
+        for d in range(self.dimension):
+            col = X[:, d]
+            s = np.sort(col)
+            breaks = np.nonzero(np.diff(s) > tol)[0]
+            starts = np.concatenate([[0], breaks + 1])
+            values = s[starts]
+            if values.size < 2:
+                return None
+            i = np.searchsorted(values + tol, col)
+            if np.any(np.abs(values[np.clip(i, 0, values.size - 1)] - col) > tol):
+                return None
+            axes.append(values)
+            idx.append(i)
+        point_shape = tuple(len(a) for a in axes)
+        if int(np.prod(point_shape)) != self.n_points:
+            return None
+        cell_shape = tuple(n - 1 for n in point_shape)
+        if int(np.prod(cell_shape)) != self.n_cells:
+            return None
+        pidx = np.stack(idx, axis=1)
+        flat_points = np.ravel_multi_index(tuple(pidx.T), point_shape)
+        if np.unique(flat_points).size != self.n_points:
+            return None
+        conn = self.blocks[0].connectivity if len(self.blocks) == 1 else np.concatenate(
+            [b.connectivity for b in self.blocks])
+        corner = pidx[conn]  # (n_cells, k, dim)
+        lo = corner.min(axis=1)
+        hi = corner.max(axis=1)
+        if np.any(hi - lo != 1):
+            return None
+        flat_cells = np.ravel_multi_index(tuple(lo.T), cell_shape)
+        if np.unique(flat_cells).size != self.n_cells:
+            return None
+        steps = [np.diff(a) for a in axes]
+        uniform = all(np.allclose(s, s.mean(), rtol=1e-6, atol=0) for s in steps)
+        return RegularGrid(axes=tuple(axes), mesh_axes=tuple(self.plane_axes[: self.dimension]),
+                           cell_index=flat_cells, point_index=flat_points, uniform=bool(uniform))
+
+    # ----------------------------------------------------- data conversions
+    def point_to_cell(self, values: np.ndarray) -> np.ndarray:
+        """Cell values as the mean of their corner values.
+
+        Parameters
+        ----------
+        values : ndarray of shape (n_points,) or (n_points, k)
+
+        Returns
+        -------
+        ndarray of shape (n_cells,) or (n_cells, k)
+            NaN and Inf corners are left out of the mean; a cell whose corners
+            are all non-finite gets NaN.
+
+        Notes
+        -----
+        For simplices the corner mean equals the cell mean of the linear
+        interpolant; for quads and hexahedra it is the value of the bilinear /
+        trilinear interpolant at the cell centre.
+        """
+        v = np.asarray(values, dtype=np.float64)
+        if v.shape[0] != self.n_points:
+            raise ValueError(f"expected {self.n_points} point values, found {v.shape[0]}")
+        flat = v.reshape(self.n_points, -1)
+        finite = np.isfinite(flat)
+        a = self.incidence
+        total = a @ np.where(finite, flat, 0.0)
+        count = a @ finite.astype(np.float64)
+        with np.errstate(invalid="ignore", divide="ignore"):
+            out = np.where(count > 0, total / np.maximum(count, 1), np.nan)
+        return out.reshape((self.n_cells,) + v.shape[1:])
+
+    def cell_to_point(self, values: np.ndarray) -> np.ndarray:
+        """Point values as the measure-weighted mean of the cells around each point.
+
+        Parameters
+        ----------
+        values : ndarray of shape (n_cells,) or (n_cells, k)
+
+        Returns
+        -------
+        ndarray of shape (n_points,) or (n_points, k)
+            Non-finite cells are left out; points of no cell, or only of
+            non-finite cells, get NaN.
+        """
+        v = np.asarray(values, dtype=np.float64)
+        if v.shape[0] != self.n_cells:
+            raise ValueError(f"expected {self.n_cells} cell values, found {v.shape[0]}")
+        flat = v.reshape(self.n_cells, -1)
+        finite = np.isfinite(flat)
+        w = self.cell_measures[:, None] * finite
+        at = self._incidence_t
+        total = at @ (np.where(finite, flat, 0.0) * w)
+        weight = at @ w
+        with np.errstate(invalid="ignore", divide="ignore"):
+            out = np.where(weight > 0, total / np.where(weight > 0, weight, 1.0), np.nan)
+        return out.reshape((self.n_points,) + v.shape[1:])
+
+    @cached_property
+    def _incidence_t(self):
+        return self.incidence.T.tocsr()
+
+
+# ---------------------------------------------------------------------------
+# per-block geometry
+
+_G = 0.5 - 0.5 / np.sqrt(3.0), 0.5 + 0.5 / np.sqrt(3.0)  # 2-point Gauss on [0, 1]
+
+# Dunavant degree-4 rule on the unit triangle (barycentric points, weights summing to 1)
+_TRI4_POINTS = np.array([
+    [0.108103018168070, 0.445948490915965, 0.445948490915965],
+    [0.445948490915965, 0.108103018168070, 0.445948490915965],
+    [0.445948490915965, 0.445948490915965, 0.108103018168070],
+    [0.816847572980459, 0.091576213509771, 0.091576213509771],
+    [0.091576213509771, 0.816847572980459, 0.091576213509771],
+    [0.091576213509771, 0.091576213509771, 0.816847572980459],
+])
+_TRI4_WEIGHTS = np.array([0.223381589678011] * 3 + [0.109951743655322] * 3)
+
+
+def _det(J: np.ndarray) -> np.ndarray:
+    if J.shape[-1] == 2:
+        return J[..., 0, 0] * J[..., 1, 1] - J[..., 0, 1] * J[..., 1, 0]
+    return (J[..., 0, 0] * (J[..., 1, 1] * J[..., 2, 2] - J[..., 1, 2] * J[..., 2, 1])
+            - J[..., 0, 1] * (J[..., 1, 0] * J[..., 2, 2] - J[..., 1, 2] * J[..., 2, 0])
+            + J[..., 0, 2] * (J[..., 1, 0] * J[..., 2, 1] - J[..., 1, 1] * J[..., 2, 0]))
+
+
+def _quadrature(X: np.ndarray, rule) -> tuple[np.ndarray, np.ndarray]:
+    """Integrate 1 and x over mapped cells: X (n, k, d); rule yields (N, dN, w)."""
+    n, _, d = X.shape
+    measure = np.zeros(n)
+    moment = np.zeros((n, d))
+    for N, dN, w in rule:
+        J = np.einsum("nkd,ke->nde", X, dN)
+        detJ = _det(J) * w
+        measure += detJ
+        moment += (N @ X) * detJ[:, None]
+    return measure, moment
+
+
+def _quad_rule():
+    for u in _G:
+        for v in _G:
+            N = np.array([(1 - u) * (1 - v), u * (1 - v), u * v, (1 - u) * v])
+            dN = np.array([[-(1 - v), -(1 - u)], [1 - v, -u], [v, u], [-v, 1 - u]])
+            yield N, dN, 0.25
+
+
+def _hex_rule():
+    corners = np.array([[0, 0, 0], [1, 0, 0], [1, 1, 0], [0, 1, 0],
+                        [0, 0, 1], [1, 0, 1], [1, 1, 1], [0, 1, 1]], dtype=float)
+    for u in _G:
+        for v in _G:
+            for w in _G:
+                p = np.array([u, v, w])
+                f = np.where(corners == 1, p, 1 - p)  # (8, 3) one-axis factors
+                sgn = np.where(corners == 1, 1.0, -1.0)
+                N = f.prod(axis=1)
+                dN = np.empty((8, 3))
+                for a in range(3):
+                    others = [b for b in range(3) if b != a]
+                    dN[:, a] = sgn[:, a] * f[:, others[0]] * f[:, others[1]]
+                yield N, dN, 0.125
+
+
+def _wedge_rule():
+    for bary, wt in zip(_TRI4_POINTS, _TRI4_WEIGHTS):
+        xi, eta = bary[1], bary[2]
+        L = np.array([1 - xi - eta, xi, eta])
+        dL = np.array([[-1.0, -1.0], [1.0, 0.0], [0.0, 1.0]])
+        for z in _G:
+            N = np.concatenate([L * (1 - z), L * z])
+            dN = np.zeros((6, 3))
+            dN[:3, :2] = dL * (1 - z)
+            dN[3:, :2] = dL * z
+            dN[:3, 2] = -L
+            dN[3:, 2] = L
+            yield N, dN, wt * 0.5 * 0.5
+
+
+_RULES = {"quad": list(_quad_rule()), "hexahedron": list(_hex_rule()), "wedge": list(_wedge_rule())}
+
+
+def _simplex(X: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    """Signed measure and centroid of triangles (2D) or tetrahedra (3D)."""
+    E = X[:, 1:, :] - X[:, :1, :]  # (n, d, d): rows are edge vectors
+    d = X.shape[2]
+    factor = 0.5 if d == 2 else 1.0 / 6.0
+    return _det(np.swapaxes(E, 1, 2)) * factor, X.mean(axis=1)
+
+
+def _block_geometry(cell_type: str, X: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    """Signed measures and centroids of a block, X of shape (n, k, dim)."""
+    if cell_type in ("triangle", "tetra"):
+        return _simplex(X)
+    if cell_type == "polygon":
+        k = X.shape[1]
+        total = np.zeros(X.shape[0])
+        moment = np.zeros((X.shape[0], 2))
+        for i in range(1, k - 1):
+            tri = X[:, [0, i, i + 1], :]
+            a, c = _simplex(tri)
+            total += a
+            moment += a[:, None] * c
+        with np.errstate(invalid="ignore", divide="ignore"):
+            cent = np.where(total[:, None] != 0, moment / np.where(total == 0, 1, total)[:, None],
+                            X.mean(axis=1))
+        return total, cent
+    if cell_type == "pyramid":
+        splits = [((0, 1, 2, 4), (0, 2, 3, 4)), ((0, 1, 3, 4), (1, 2, 3, 4))]
+        total = np.zeros(X.shape[0])
+        moment = np.zeros((X.shape[0], 3))
+        for split in splits:
+            for tet in split:
+                v, c = _simplex(X[:, list(tet), :])
+                total += 0.5 * v
+                moment += 0.5 * v[:, None] * c
+        with np.errstate(invalid="ignore", divide="ignore"):
+            cent = np.where(total[:, None] != 0, moment / np.where(total == 0, 1, total)[:, None],
+                            X.mean(axis=1))
+        return total, cent
+    if cell_type in _RULES:
+        measure, moment = _quadrature(X, _RULES[cell_type])
+        with np.errstate(invalid="ignore", divide="ignore"):
+            cent = np.where(measure[:, None] != 0,
+                            moment / np.where(measure == 0, 1, measure)[:, None], X.mean(axis=1))
+        if cell_type == "wedge":
+            # VTK orders a wedge's base (0, 1, 2) with its normal pointing away from the top,
+            # so the reference map of a valid wedge is left-handed
+            measure = -measure
+        return measure, cent
+    raise UnsupportedMeshError(f"no geometry for cell type '{cell_type}'")
