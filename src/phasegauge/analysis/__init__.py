@@ -1,0 +1,1 @@
+"""Analyses: pure functions of a mesh and the phase indicator."""

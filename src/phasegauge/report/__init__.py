@@ -1,0 +1,1 @@
+"""Reports: tables, plots, the HTML page and the manifest."""
