@@ -370,8 +370,8 @@ class Mesh:
         determinant of the bilinear/trilinear map is integrated with 2-point
         Gauss rules per direction, which is exact, so non-planar hexahedron
         faces are handled; wedges use a degree-4 triangle rule times a 2-point
-        Gauss rule (exact); pyramids the mean of the two tetrahedral splits of
-        the base (exact for a bilinear base). 2D meshes whose cells are all
+        Gauss rule (exact); pyramids are integrated as hexahedra whose top face
+        collapses to the apex (exact for a bilinear base). 2D meshes whose cells are all
         wound clockwise are accepted: measures are magnitudes.
         """
         return np.abs(self._geometry[0])
@@ -742,18 +742,10 @@ def _block_geometry(cell_type: str, X: np.ndarray) -> tuple[np.ndarray, np.ndarr
                             X.mean(axis=1))
         return total, cent
     if cell_type == "pyramid":
-        splits = [((0, 1, 2, 4), (0, 2, 3, 4)), ((0, 1, 3, 4), (1, 2, 3, 4))]
-        total = np.zeros(X.shape[0])
-        moment = np.zeros((X.shape[0], 3))
-        for split in splits:
-            for tet in split:
-                v, c = _simplex(X[:, list(tet), :])
-                total += 0.5 * v
-                moment += 0.5 * v[:, None] * c
-        with np.errstate(invalid="ignore", divide="ignore"):
-            cent = np.where(total[:, None] != 0, moment / np.where(total == 0, 1, total)[:, None],
-                            X.mean(axis=1))
-        return total, cent
+        # a pyramid is the cone from the apex over its (bilinear) base: the trilinear map of a
+        # hexahedron whose four top corners meet at the apex, integrated exactly like one
+        X = X[:, [0, 1, 2, 3, 4, 4, 4, 4], :]
+        cell_type = "hexahedron"
     if cell_type in _RULES:
         measure, moment = _quadrature(X, _RULES[cell_type])
         with np.errstate(invalid="ignore", divide="ignore"):

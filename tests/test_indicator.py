@@ -1,0 +1,76 @@
+"""Mapping fields to the phase indicator c in [0, 1]."""
+
+import warnings
+
+import numpy as np
+import pytest
+
+from phasegauge.errors import (FieldNotFoundError, FieldShapeError, NonFiniteWarning, OptionError,
+                               RangeWarning)
+from phasegauge.indicator import make_indicator, map_to_indicator, parse_range
+from phasegauge.io import StepFields
+from phasegauge.meshgen import grid_mesh
+
+
+def test_mapping_order_parameter_and_sides():
+    phi = np.array([-1.0, 0.0, 1.0])
+    assert np.allclose(map_to_indicator(phi, (-1, 1)), [0, 0.5, 1])
+    assert np.allclose(map_to_indicator(phi, (-1, 1), "lower"), [1, 0.5, 0])
+    # not clipped: overshoots stay visible to the boundedness check
+    assert map_to_indicator(np.array([1.2]), (0, 1))[0] == pytest.approx(1.2)
+
+
+@pytest.mark.parametrize("text,expected", [("-1,1", (-1.0, 1.0)), ("0, 1", (0.0, 1.0)), ((2, 5), (2.0, 5.0))])
+def test_parse_range(text, expected):
+    assert parse_range(text) == expected
+
+
+@pytest.mark.parametrize("text", ["1", "a,b", "1,1", "0,inf"])
+def test_parse_range_rejects(text):
+    with pytest.raises(OptionError, match="range"):
+        parse_range(text)
+
+
+def test_point_and_cell_data_use_consistent_conversions():
+    m = grid_mesh((4, 4), kind="triangle")
+    phi = 2 * m.points[:, 0] - 1
+    ind = make_indicator(m, StepFields(point_data={"phi": phi}), "phi", value_range=(-1, 1))
+    assert ind.location == "point"
+    assert np.allclose(ind.point, m.points[:, 0])
+    assert np.allclose(ind.cell, m.cell_centroids[:, 0])  # linear field: corner mean = centroid value
+    cell = make_indicator(m, StepFields(cell_data={"alpha": m.cell_centroids[:, 0]}), "alpha")
+    assert cell.location == "cell" and np.allclose(cell.cell, m.cell_centroids[:, 0])
+    assert cell.point.shape == (m.n_points,)
+
+
+def test_nonfinite_counted_and_kept_out():
+    m = grid_mesh((2, 2))
+    alpha = np.array([0.0, np.nan, 1.0, np.inf])
+    with pytest.warns(NonFiniteWarning, match="2 NaN or Inf"):
+        ind = make_indicator(m, StepFields(cell_data={"alpha": alpha}), "alpha")
+    assert ind.nonfinite == 2
+    assert np.isnan(ind.cell[[1, 3]]).all()
+    assert np.isfinite(ind.point).any()
+
+
+def test_range_warning_for_order_parameter_mapped_as_fraction():
+    m = grid_mesh((2, 2))
+    phi = np.linspace(-1, 1, m.n_points)
+    with pytest.warns(RangeWarning, match="--range -1,1"):
+        make_indicator(m, StepFields(point_data={"phi": phi}), "phi", value_range=(0, 1))
+    with warnings.catch_warnings():
+        warnings.simplefilter("error")
+        make_indicator(m, StepFields(point_data={"phi": phi}), "phi", value_range=(-1, 1))
+
+
+def test_field_errors_name_the_fix():
+    m = grid_mesh((2, 2))
+    fields = StepFields(point_data={"U": np.zeros((m.n_points, 3)), "p": np.zeros(m.n_points)})
+    with pytest.raises(FieldNotFoundError, match="field 'phi' not found; fields there: U, p"):
+        make_indicator(m, fields, "phi", where="a.vtu, step 0")
+    with pytest.raises(FieldShapeError, match=r"3 components.*'U\[0\]'"):
+        make_indicator(m, fields, "U")
+    ind = make_indicator(m, fields, "U[1]")
+    assert ind.point.shape == (m.n_points,)
+    with pytest.raises(OptionError, match="phase"):
+        make_indicator(m, fields, "p", phase="middle")
