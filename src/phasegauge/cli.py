@@ -8,6 +8,7 @@ Heavy libraries are imported inside the commands, so ``--help`` starts fast.
 from __future__ import annotations
 
 import json
+import os
 import sys
 import warnings
 
@@ -82,9 +83,161 @@ def inspect(path, as_json, scan):
         click.echo(format_description(desc))
 
 
-def run():  # pragma: no cover - console entry for python -m
-    main(prog_name="phasegauge")
+def _floats(text, what, count=None):
+    from .errors import OptionError
+
+    if text is None:
+        return None
+    try:
+        values = tuple(float(v) for v in str(text).replace(";", ",").split(",") if v.strip())
+    except ValueError:
+        raise OptionError(f"{what} must be numbers separated by commas, found {text!r}",
+                          fix="for example 0.1,0.2") from None
+    if count is not None and len(values) != count:
+        from .errors import OptionError as _O
+
+        raise _O(f"{what} needs {count} numbers, found {len(values)}", fix="separate them with commas")
+    return values
 
 
-if __name__ == "__main__":  # pragma: no cover
-    sys.exit(run())
+def _box(text):
+    values = _floats(text, "--box")
+    if values is None:
+        return None
+    from .errors import OptionError
+
+    if len(values) not in (4, 6):
+        raise OptionError(f"--box needs 4 (2D) or 6 (3D) numbers xmin,xmax,ymin,ymax[,zmin,zmax], found "
+                          f"{len(values)}", fix="for example --box 0,1,0,0.5")
+    pairs = [values[i:i + 2] for i in range(0, len(values), 2)]
+    if len(pairs) == 2:
+        pairs.append((-1e300, 1e300))
+    return tuple(pairs)
+
+
+_measure_options = [
+    click.option("--field", "-f", required=True, help="Field mapped to the phase indicator c."),
+    click.option("--range", "value_range", default="0,1", show_default=True,
+                 help="Field values mapped to c = 0 and c = 1, as LO,HI (an order parameter: -1,1)."),
+    click.option("--phase", type=click.Choice(["upper", "lower"]), default="upper", show_default=True,
+                 help="Measure the phase where the field is high (upper) or low (lower)."),
+    click.option("--level", type=float, default=0.5, show_default=True,
+                 help="Indicator level of the interface and of droplets."),
+    click.option("--velocity", default=None, help="Velocity field (droplet velocities, tracking, flow-weighted sections)."),
+]
+
+
+def _add(options):
+    def wrap(f):
+        for opt in reversed(options):
+            f = opt(f)
+        return f
+    return wrap
+
+
+@main.command()
+@click.argument("path")
+@_add(_measure_options)
+@click.option("--out", "-o", "out", required=True, type=click.Path(file_okay=False), help="Output folder.")
+@click.option("--analyses", default=",".join(("interface", "droplets", "mixing", "conservation")),
+              show_default=True, help="Comma-separated subset of the analyses to run.")
+@click.option("--adjacency", type=click.Choice(["face", "point"]), default="face", show_default=True,
+              help="Cells that share a face (or an edge in 2D), or any point, belong to one droplet.")
+@click.option("--periodic", default="", help="Periodic axes for droplets, e.g. x,y.")
+@click.option("--ignore-remerge", type=int, default=0, show_default=True,
+              help="A breakup that merges again within this many steps is no event.")
+@click.option("--densities", default=None, help="Densities of the measured and the other phase, RHO1,RHO2.")
+@click.option("--diffusivity", type=float, default=None,
+              help="Physical diffusivity or mobility to compare the numerical one with.")
+@click.option("--box", default=None, help="Region for the mixing figures: xmin,xmax,ymin,ymax[,zmin,zmax].")
+@click.option("--sections", "section_axis", type=click.Choice(["x", "y", "z"]), default=None,
+              help="Cross-section profiles along this axis (mixing length).")
+@click.option("--section-count", type=int, default=20, show_default=True, help="Number of cross sections.")
+@click.option("--section-at", default=None, help="Cross-section positions, comma-separated (instead of a count).")
+@click.option("--mixing-target", type=float, default=0.9, show_default=True,
+              help="Mixing index that defines the mixing length.")
+@click.option("--drift-tolerance", type=float, default=1e-3, show_default=True,
+              help="Relative phase-volume drift that is flagged.")
+@click.option("--workers", "-j", type=int, default=1, show_default=True, help="Local worker processes.")
+@click.option("--scheduler", default=None, help="Dask scheduler address (tcp://host:8786), or 'local'.")
+@click.option("--resume", is_flag=True, help="Finish an interrupted run in OUT, reusing finished steps.")
+@click.option("--overwrite", is_flag=True, help="Replace an existing output folder.")
+@click.option("--strict", is_flag=True, help="Stop at a bad step instead of skipping it.")
+@click.option("--no-contours", is_flag=True, help="Do not write the interface geometry of every step.")
+@click.option("--snapshots", type=int, default=4, show_default=True, help="Steps whose interface the report draws.")
+@click.option("--quiet", "-q", is_flag=True, help="No progress display.")
+def measure(path, field, value_range, phase, level, velocity, out, analyses, adjacency, periodic,
+            ignore_remerge, densities, diffusivity, box, section_axis, section_count, section_at,
+            mixing_target, drift_tolerance, workers, scheduler, resume, overwrite, strict, no_contours,
+            snapshots, quiet):
+    """Measure interface, droplets, mixing and conservation on every step of PATH.
+
+    PATH is a mesh file, an XDMF time series, a folder of numbered files, a
+    quoted glob or a 'time,path' step listing. Writes steps.csv, droplets.csv,
+    events.csv, plots, contours/, report.html and manifest.json into OUT.
+    """
+    from .pipeline import MeasureOptions, measure as run_measure
+
+    options = MeasureOptions(
+        field=field, value_range=value_range, phase=phase, level=level, velocity=velocity,
+        analyses=tuple(a.strip() for a in analyses.split(",") if a.strip()), connectivity=adjacency,
+        periodic=tuple(a.strip() for a in periodic.split(",") if a.strip()),
+        ignore_remerge_within=ignore_remerge, densities=_floats(densities, "--densities", 2),
+        diffusivity=diffusivity, box=_box(box), section_axis=section_axis, section_count=section_count,
+        section_positions=_floats(section_at, "--section-at"), mixing_target=mixing_target,
+        drift_tolerance=drift_tolerance, strict=strict)
+    result = run_measure(path, options=options, out=out, workers=workers, scheduler=scheduler,
+                         overwrite=overwrite, resume=resume, progress=None if not quiet else False,
+                         write_contours=not no_contours, snapshots=snapshots)
+    _summary(result, out, quiet)
+
+
+def _summary(result, out, quiet):
+    if quiet:
+        return
+    n = len(result.steps)
+    click.echo(f"measured {n} step{'s' if n != 1 else ''}; report: {os.path.join(out, 'report.html')}")
+    for flag in result.flags:
+        click.echo(f"  flag: {flag}")
+
+
+@main.command()
+@click.argument("recipe", type=click.Path(dir_okay=False))
+@click.option("--overwrite", is_flag=True, default=None, help="Replace an existing output folder.")
+@click.option("--resume", is_flag=True, help="Finish an interrupted run.")
+@click.option("--workers", "-j", type=int, default=None, help="Local worker processes (overrides the recipe).")
+@click.option("--quiet", "-q", is_flag=True, help="No progress display.")
+def run(recipe, overwrite, resume, workers, quiet):
+    """Run a recipe file (TOML): a whole measure or compare run kept beside the case."""
+    from .recipes import load_recipe, run_recipe
+
+    loaded = load_recipe(recipe)
+    result = run_recipe(recipe, overwrite=overwrite or None, resume=resume, workers=workers,
+                        progress=None if not quiet else False)
+    _summary(result, loaded["output"]["folder"], quiet)
+
+
+
+
+@main.command()
+@click.argument("directory", type=click.Path(file_okay=False))
+@click.option("--only", default=None, help="Comma-separated names of the series to write (default: all).")
+@click.option("--overwrite", is_flag=True, help="Replace series already in DIRECTORY.")
+def samples(directory, only, overwrite):
+    """Write the demo series (computed by the generators, seeded) into DIRECTORY."""
+    from .errors import OutputError
+    from .samples import SAMPLE_NAMES, write_samples
+
+    names = [n.strip() for n in only.split(",")] if only else list(SAMPLE_NAMES)
+    unknown = [n for n in names if n not in SAMPLE_NAMES]
+    if unknown:
+        from .errors import OptionError
+
+        raise OptionError(f"unknown sample series {unknown}", fix="choose from " + ", ".join(SAMPLE_NAMES))
+    existing = [n for n in names if os.path.exists(os.path.join(directory, n))]
+    if existing and not overwrite:
+        raise OutputError(f"series already there: {', '.join(existing)}", where=directory,
+                          fix="give --overwrite to replace them, or another folder")
+    written = write_samples(directory, names=names)
+    for name, path in written.items():
+        click.echo(f"{name}: {path}")

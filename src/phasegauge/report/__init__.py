@@ -1,1 +1,8 @@
-"""Reports: tables, plots, the HTML page and the manifest."""
+"""Reports: tables, plots, the HTML page and the manifest (the edge where files are written)."""
+
+from ._files import (atomic_save_figure, atomic_write_bytes, atomic_write_csv, atomic_write_json,
+                     atomic_write_text, prepare_output_folder, sha256_of)
+from ._measure_report import write_measure_report
+
+__all__ = ["atomic_save_figure", "atomic_write_bytes", "atomic_write_csv", "atomic_write_json",
+           "atomic_write_text", "prepare_output_folder", "sha256_of", "write_measure_report"]

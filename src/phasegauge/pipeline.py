@@ -1,0 +1,632 @@
+"""The measure pipeline: every analysis on every step, in order or in parallel, resumable.
+
+Data flow (see DEVELOPERS.md)::
+
+    series path -> steps (each read once, by the worker that analyses it)
+      -> mesh + fields -> indicator -> per-step analyses -> StepResult (small)
+      -> in step order: droplet tracking, phase-volume drift, diffusion audit
+      -> MeasureResult (DataFrames) -> report folder (optional)
+
+Workers receive the series path and a step index, never arrays, and return a
+:class:`StepResult` of scalars and small tables. Steps can run in this process,
+in local worker processes, or on a Dask cluster; all three give identical
+tables. With an output folder, each finished step is cached there, keyed by the
+step file's content hash and the options, so ``resume=True`` finishes an
+interrupted run without redoing finished steps.
+"""
+
+from __future__ import annotations
+
+import dataclasses
+import hashlib
+import json
+import math
+import os
+import pickle
+import time
+import warnings
+from dataclasses import dataclass, field
+
+import numpy as np
+
+from .errors import InputError, OptionError, PhasegaugeError, SkippedStepWarning
+from .indicator import make_indicator, normalize_phase, parse_range
+
+__all__ = ["MeasureOptions", "StepResult", "MeasureResult", "measure", "run_step", "ANALYSES"]
+
+#: the analyses ``measure`` can run
+ANALYSES = ("interface", "droplets", "mixing", "conservation")
+
+_AXES = {"x": 0, "y": 1, "z": 2}
+
+
+@dataclass(frozen=True)
+class MeasureOptions:
+    """What to measure and how (everything that changes the numbers).
+
+    Parameters
+    ----------
+    field : str
+        Field mapped to the phase indicator.
+    value_range : tuple of float
+        Field values mapped to c = 0 and c = 1.
+    phase : {'upper', 'lower'}
+        Which side of the range is the measured phase.
+    level : float
+        Indicator level of the interface and of droplet labelling, in (0, 1).
+    velocity : str or None
+        Velocity field (for droplet velocities, prediction in tracking and
+        flow-weighted cross sections).
+    analyses : tuple of str
+        Subset of :data:`ANALYSES`.
+    connectivity : {'face', 'point'}
+        Cell adjacency for droplet labelling.
+    periodic : tuple of str
+        Periodic axes (``'x'``, ``'y'``, ``'z'``) for droplet labelling.
+    ignore_remerge_within : int
+        A breakup that merges again within this many steps is not an event.
+    densities : tuple of float or None
+        Densities of the measured phase and the other phase, for masses.
+    diffusivity : float or None
+        Physical diffusivity or mobility to compare the numerical one with.
+    box : tuple or None
+        ``((xmin, xmax), (ymin, ymax), (zmin, zmax))`` region for mixing figures.
+    section_axis : str or None
+        Axis of the cross-section profiles (``'x'``...); None for none.
+    section_count : int
+        Number of planes when ``section_positions`` is not given.
+    section_positions : tuple of float or None
+    mixing_target : float
+        Mixing index that defines the mixing length.
+    drift_tolerance : float
+        Relative phase-volume drift that raises a flag in the report.
+    strict : bool
+        Fail on a bad step instead of skipping it.
+    """
+
+    field: str
+    value_range: tuple = (0.0, 1.0)
+    phase: str = "upper"
+    level: float = 0.5
+    velocity: str | None = None
+    analyses: tuple = ANALYSES
+    connectivity: str = "face"
+    periodic: tuple = ()
+    ignore_remerge_within: int = 0
+    densities: tuple | None = None
+    diffusivity: float | None = None
+    box: tuple | None = None
+    section_axis: str | None = None
+    section_count: int = 20
+    section_positions: tuple | None = None
+    mixing_target: float = 0.9
+    drift_tolerance: float = 1e-3
+    strict: bool = False
+
+    def __post_init__(self):
+        set_ = object.__setattr__
+        if not isinstance(self.field, str) or not self.field:
+            raise OptionError("a field name is needed", fix="give --field NAME (see 'phasegauge inspect')")
+        set_(self, "value_range", parse_range(self.value_range))
+        set_(self, "phase", normalize_phase(self.phase))
+        level = float(self.level)
+        if not 0.0 < level < 1.0:
+            raise OptionError(f"level must lie strictly between 0 and 1, found {level}",
+                              fix="the interface is usually at --level 0.5")
+        set_(self, "level", level)
+        analyses = tuple(self.analyses)
+        unknown = [a for a in analyses if a not in ANALYSES]
+        if unknown or not analyses:
+            raise OptionError(f"unknown analyses {unknown}" if unknown else "no analysis chosen",
+                              fix="choose from " + ", ".join(ANALYSES))
+        set_(self, "analyses", tuple(a for a in ANALYSES if a in analyses))
+        if self.connectivity not in ("face", "point"):
+            raise OptionError(f"connectivity must be 'face' or 'point', found {self.connectivity!r}",
+                              fix="'face' keeps droplets that touch at a corner apart")
+        periodic = tuple(str(a).lower() for a in (self.periodic or ()))
+        if any(a not in _AXES for a in periodic):
+            raise OptionError(f"periodic axes must be among x, y, z, found {periodic}", fix="for example x,y")
+        set_(self, "periodic", periodic)
+        if self.section_axis is not None and str(self.section_axis).lower() not in _AXES:
+            raise OptionError(f"section axis must be x, y or z, found {self.section_axis!r}",
+                              fix="for a channel along x: x")
+        if self.section_axis is not None:
+            set_(self, "section_axis", str(self.section_axis).lower())
+        if int(self.section_count) < 1:
+            raise OptionError("section count must be at least 1", fix="for example 20")
+        if self.section_positions is not None:
+            set_(self, "section_positions", tuple(float(p) for p in self.section_positions))
+        if self.densities is not None:
+            dens = tuple(float(d) for d in self.densities)
+            if len(dens) != 2 or min(dens) < 0:
+                raise OptionError(f"densities must be two non-negative numbers, found {self.densities}",
+                                  fix="give the measured phase's density then the other's")
+            set_(self, "densities", dens)
+        if self.diffusivity is not None and not float(self.diffusivity) >= 0:
+            raise OptionError(f"diffusivity must be non-negative, found {self.diffusivity}",
+                              fix="give the physical diffusivity or mobility in length^2/time")
+        if not 0.0 < float(self.mixing_target) <= 1.0:
+            raise OptionError("mixing target must lie in (0, 1]", fix="0.9 is common practice")
+        if self.box is not None:
+            box = tuple(tuple(float(v) for v in pair) for pair in self.box)
+            if any(len(p) != 2 or p[0] >= p[1] for p in box):
+                raise OptionError(f"box must be (lo, hi) pairs per axis, found {self.box}",
+                                  fix="for example ((0, 1), (0, 0.5), (-1, 1))")
+            set_(self, "box", box)
+
+    def key(self) -> str:
+        """Digest of every option that changes the numbers."""
+        text = json.dumps(dataclasses.asdict(self), sort_keys=True, default=str)
+        return hashlib.sha256(text.encode()).hexdigest()[:16]
+
+
+@dataclass
+class StepResult:
+    """What one step's analyses return to the pipeline (small, picklable)."""
+
+    index: int
+    time: float
+    path: str
+    metrics: dict = field(default_factory=dict)
+    droplets: object = None  # DataFrame or None
+    label_cells: np.ndarray | None = None
+    label_values: np.ndarray | None = None
+    profile: object = None  # DataFrame or None
+    contour: object = None  # Contour of the step (kept for snapshots)
+    mesh_signature: str = ""
+    messages: list = field(default_factory=list)
+    skipped: str | None = None
+    seconds: float = 0.0
+    file_sha256: str = ""
+    reused: bool = False
+
+    def labels(self, n_cells: int) -> np.ndarray:
+        out = np.full(n_cells, -1, dtype=np.int32)
+        if self.label_cells is not None:
+            out[self.label_cells] = self.label_values
+        return out
+
+
+@dataclass
+class MeasureResult:
+    """Tables of a measure run (pandas DataFrames) and series-level findings.
+
+    Attributes
+    ----------
+    steps : DataFrame
+        One row per step (the columns of ``steps.csv``).
+    droplets : DataFrame
+        One row per droplet per step, with its track id.
+    events : DataFrame
+        Breakup, coalescence, complex, appearance and disappearance events.
+    profiles : DataFrame
+        Cross-section profiles of every step (empty without ``section_axis``).
+    audit : dict
+        Numerical-diffusion audit of the interface width history.
+    flags : list of str
+        Findings the report puts first (widening interface, drift, overshoot...).
+    skipped : list of str
+        Steps left out, with the reason.
+    """
+
+    steps: object
+    droplets: object
+    events: object
+    profiles: object
+    audit: dict
+    flags: list
+    skipped: list
+    options: MeasureOptions
+    results: list = field(default_factory=list, repr=False)
+
+
+# ------------------------------------------------------------------ per step
+_SERIES = {}
+
+
+def _open(path):
+    from .io import Series
+
+    series = _SERIES.get(path)
+    if series is None:
+        if len(_SERIES) > 4:
+            for s in _SERIES.values():
+                s.close()
+            _SERIES.clear()
+        series = Series(path)
+        _SERIES[path] = series
+    return series
+
+
+def _step_file_hash(info) -> str:
+    from .report._files import sha256_of
+
+    return sha256_of(info.path)
+
+
+def _cache_file(cache_dir: str, index: int, key: str) -> str:
+    return os.path.join(cache_dir, f"step_{index:06d}_{key}.pkl")
+
+
+def run_step(path, index: int, options: MeasureOptions, *, cache_dir: str | None = None,
+             contour_dir: str | None = None, keep_contour: bool = False) -> StepResult:
+    """Read step ``index`` of the series at ``path`` and run every analysis on it.
+
+    This is the unit of parallel work: it takes a path, not arrays. With
+    ``cache_dir``, a result cached for the same file content and options is
+    returned without recomputing, and a new result is cached atomically.
+    A step that cannot be read or analysed returns a result with ``skipped``
+    set, unless ``options.strict``.
+    """
+    series = _open(os.fspath(path))
+    info = series.steps[index]
+    digest = ""
+    if cache_dir is not None:
+        digest = _step_file_hash(info)
+        key = hashlib.sha256(f"{digest}|{info.grid}|{options.key()}".encode()).hexdigest()[:20]
+        cached = _cache_file(cache_dir, index, key)
+        if os.path.exists(cached):
+            try:
+                with open(cached, "rb") as handle:
+                    result = pickle.load(handle)
+                result.reused = True
+                if not keep_contour:
+                    result.contour = None
+                return result
+            except Exception:  # a damaged cache entry is recomputed
+                pass
+    start = time.perf_counter()
+    with warnings.catch_warnings(record=True) as caught:
+        warnings.simplefilter("always")
+        try:
+            step = series.read(index)
+            result = analyse_step(step, options, contour_dir=contour_dir)
+        except InputError as err:
+            if options.strict:
+                raise err.with_where(info.where) from None
+            result = StepResult(index, info.time, info.path, skipped=err.with_where(info.where).one_line())
+    result.messages = [str(w.message) for w in caught]
+    result.seconds = time.perf_counter() - start
+    result.file_sha256 = digest
+    if cache_dir is not None:
+        from .report._files import atomic_write_bytes
+
+        atomic_write_bytes(cached, pickle.dumps(result, protocol=pickle.HIGHEST_PROTOCOL))
+    if not keep_contour:
+        result.contour = None
+    return result
+
+
+def _velocity(step, options):
+    """Velocity of the step on cells and on points, or (None, None)."""
+    if options.velocity is None:
+        return None, None
+    name = options.velocity
+    fields = step.fields
+    where = step.info.where
+    if name in fields.cell_data:
+        cell = np.asarray(fields.cell_data[name], dtype=np.float64)
+        location = "cell"
+    elif name in fields.point_data:
+        cell = None
+        point = np.asarray(fields.point_data[name], dtype=np.float64)
+        location = "point"
+    else:
+        from .errors import FieldNotFoundError
+
+        raise FieldNotFoundError(f"velocity field '{name}' not found; fields there: "
+                                 + (", ".join(fields.names()) or "none"), where=where,
+                                 fix="name the velocity field with --velocity, or leave it out")
+    values = cell if location == "cell" else point
+    if values.ndim != 2 or values.shape[1] not in (2, 3):
+        from .errors import FieldShapeError
+
+        raise FieldShapeError(f"velocity field '{name}' must have 2 or 3 components, found shape "
+                              f"{values.shape}", where=where, fix="name a vector field")
+    if values.shape[1] == 2:
+        values = np.hstack([values, np.zeros((values.shape[0], 1))])
+    mesh = step.mesh
+    if location == "cell":
+        return values, mesh.cell_to_point(values)
+    return mesh.point_to_cell(values), values
+
+
+def analyse_step(step, options: MeasureOptions, *, contour_dir: str | None = None) -> StepResult:
+    """Run the chosen analyses on one step read into the model (pure apart from contour files)."""
+    from .analysis import conservation, droplets as droplets_mod, interface, mixing
+
+    mesh = step.mesh
+    ind = make_indicator(mesh, step.fields, options.field, value_range=options.value_range,
+                         phase=options.phase, where=step.info.where)
+    if ind.nonfinite == ind.cell.size or not np.isfinite(ind.cell).any():
+        raise InputError(f"field '{options.field}' has no finite values", where=step.info.where,
+                         fix="the solver may have diverged at this step")
+    u_cell, u_point = _velocity(step, options)
+    result = StepResult(step.index, step.time, step.info.path, mesh_signature=mesh.signature)
+    m = {"step": step.index, "time": step.time}
+    if "conservation" in options.analyses:
+        m.update(conservation.conservation_metrics(mesh, ind, densities=options.densities))
+        m.update(conservation.boundedness(mesh, ind))
+    contour = None
+    if "interface" in options.analyses or "droplets" in options.analyses:
+        contour = interface.find_interface(mesh, ind.point, level=options.level)
+    if "interface" in options.analyses:
+        m.update(interface.interface_metrics(mesh, ind, level=options.level, contour=contour))
+        if contour_dir is not None:
+            from .io import write_contour
+
+            name = f"interface_{step.index:06d}.vtu"
+            write_contour(contour, os.path.join(contour_dir, name))
+    if "droplets" in options.analyses:
+        axes = tuple(options.periodic)
+        found = droplets_mod.label_droplets(
+            mesh, ind.cell, level=options.level, connectivity=options.connectivity, periodic=axes,
+            velocity=u_cell, interface_cells=contour.cells, interface_sizes=contour.element_sizes)
+        table = found.table
+        m["droplet_count"] = int(len(table))
+        m["under_resolved_droplets"] = int(table["under_resolved"].sum()) if len(table) else 0
+        labelled = np.nonzero(found.labels >= 0)[0]
+        result.label_cells = labelled.astype(np.int64)
+        result.label_values = found.labels[labelled].astype(np.int32)
+        result.droplets = table
+    if "mixing" in options.analyses:
+        m.update(mixing.mixing_metrics(mesh, ind.cell, box=options.box))
+        if options.section_axis is not None:
+            profile = mixing.cross_sections(mesh, ind, axis=options.section_axis,
+                                            positions=options.section_positions,
+                                            count=options.section_count, velocity=u_point)
+            weighting = "flow" if u_point is not None else "area"
+            m["mixing_length"] = mixing.mixing_length(profile, target=options.mixing_target,
+                                                      weighting=weighting)
+            profile.insert(0, "time", step.time)
+            profile.insert(0, "step", step.index)
+            result.profile = profile
+    m["nonfinite_values"] = int(ind.nonfinite)
+    result.metrics = m
+    result.contour = contour
+    return result
+
+
+# ------------------------------------------------------------------ executors
+def _run_local(path, indices, options, workers, cache_dir, contour_dir, keep, progress):
+    from concurrent.futures import ProcessPoolExecutor, as_completed
+    import multiprocessing as mp
+
+    results = {}
+    ctx = mp.get_context("fork") if hasattr(os, "fork") else mp.get_context()
+    with ProcessPoolExecutor(max_workers=workers, mp_context=ctx) as pool:
+        futures = {pool.submit(run_step, path, i, options, cache_dir=cache_dir, contour_dir=contour_dir,
+                               keep_contour=i in keep): i for i in indices}
+        try:
+            for future in as_completed(futures):
+                res = future.result()
+                results[futures[future]] = res
+                progress.update(reused=res.reused)
+        except BaseException:
+            for f in futures:
+                f.cancel()
+            raise
+    return [results[i] for i in indices]
+
+
+def _run_dask(path, indices, options, scheduler, cache_dir, contour_dir, keep, progress):
+    try:
+        from distributed import Client, LocalCluster, as_completed
+    except ImportError:
+        raise OptionError("a Dask cluster needs the 'cluster' extra",
+                          fix="pip install 'phasegauge[cluster]'") from None
+    own_cluster = None
+    if scheduler == "local":
+        own_cluster = LocalCluster(n_workers=2, threads_per_worker=1, processes=True,
+                                   dashboard_address=None)
+        client = Client(own_cluster)
+    else:
+        try:
+            client = Client(scheduler, timeout="20s")
+        except Exception as exc:
+            raise OptionError(f"cannot reach the Dask scheduler at {scheduler} ({exc})",
+                              fix="check the address (tcp://host:8786) and that the scheduler runs") from None
+    try:
+        futures = [client.submit(run_step, path, i, options, cache_dir=cache_dir, contour_dir=contour_dir,
+                                 keep_contour=i in keep, pure=False, key=f"phasegauge-step-{i}-{time.time_ns()}")
+                   for i in indices]
+        order = {f.key: i for f, i in zip(futures, indices)}
+        results = {}
+        for future in as_completed(futures):
+            res = future.result()
+            results[order[future.key]] = res
+            progress.update(reused=res.reused)
+        return [results[i] for i in indices]
+    finally:
+        client.close()
+        if own_cluster is not None:
+            own_cluster.close()
+
+
+def _snapshot_steps(n: int, count: int = 4) -> set:
+    if n <= count:
+        return set(range(n))
+    return {int(round(i)) for i in np.linspace(0, n - 1, count)}
+
+
+# ------------------------------------------------------------------ the run
+def measure(path, field: str | None = None, *, options: MeasureOptions | None = None, out=None,
+            workers: int = 1, scheduler: str | None = None, overwrite: bool = False,
+            resume: bool = False, progress: bool | None = False, write_contours: bool = True,
+            snapshots: int = 4, **option_values) -> MeasureResult:
+    """Run every analysis on every step of a series.
+
+    Parameters
+    ----------
+    path : str or os.PathLike
+        Series path (mesh file, XDMF time series, folder, quoted glob, step listing).
+    field : str
+        Field mapped to the phase indicator (or give ``options``).
+    options : MeasureOptions, optional
+        All analysis options at once; otherwise built from ``field`` and
+        ``option_values`` (the fields of :class:`MeasureOptions`).
+    out : str or os.PathLike, optional
+        Output folder for tables, plots, contours, report and manifest.
+        Without it nothing is written.
+    workers : int
+        Local worker processes (1: in this process).
+    scheduler : str, optional
+        Dask scheduler address, or ``'local'`` for a local Dask cluster.
+    overwrite, resume : bool
+        What to do with an existing output folder (see
+        :func:`phasegauge.report.prepare_output_folder`).
+    progress : bool or None
+        Show progress on stderr (None: only on a terminal).
+    write_contours : bool
+        Write the interface of every step as a VTK file under ``out/contours``.
+    snapshots : int
+        Number of steps whose interface the report draws.
+
+    Returns
+    -------
+    MeasureResult
+    """
+    from .io import Series
+    from .progress import Progress
+
+    if options is None:
+        if field is None:
+            raise OptionError("a field name is needed", fix="give field='NAME' (see phasegauge.describe_series)")
+        options = MeasureOptions(field=field, **option_values)
+    elif option_values or field is not None:
+        options = dataclasses.replace(options, **({"field": field} if field else {}), **option_values)
+    workers = int(workers)
+    if workers < 1:
+        raise OptionError(f"workers must be at least 1, found {workers}", fix="for example --workers 2")
+    path = os.fspath(path)
+    series = Series(path)
+    n = len(series)
+    _check_times(series)
+    started = time.time()
+    cache_dir = contour_dir = None
+    if out is not None:
+        from .report._files import prepare_output_folder
+
+        run_key = hashlib.sha256(f"{os.path.abspath(path)}|{options.key()}".encode()).hexdigest()[:16]
+        prepare_output_folder(out, overwrite=overwrite, resume=resume, run_key=run_key)
+        cache_dir = os.path.join(os.fspath(out), ".cache")
+        os.makedirs(cache_dir, exist_ok=True)
+        if write_contours and "interface" in options.analyses:
+            contour_dir = os.path.join(os.fspath(out), "contours")
+            os.makedirs(contour_dir, exist_ok=True)
+    keep = _snapshot_steps(n, snapshots)
+    bar = Progress(n, "steps", enabled=progress)
+    indices = list(range(n))
+    if scheduler:
+        results = _run_dask(path, indices, options, scheduler, cache_dir, contour_dir, keep, bar)
+    elif workers > 1 and n > 1:
+        results = _run_local(path, indices, options, min(workers, n), cache_dir, contour_dir, keep, bar)
+    else:
+        results = []
+        for i in indices:
+            res = run_step(path, i, options, cache_dir=cache_dir, contour_dir=contour_dir, keep_contour=i in keep)
+            results.append(res)
+            bar.update(reused=res.reused)
+    bar.close()
+    result = assemble(series, results, options)
+    if out is not None:
+        from .report import write_measure_report
+
+        write_measure_report(out, result, series=series, started=started,
+                             execution={"workers": workers, "scheduler": scheduler, "resume": resume})
+    series.close()
+    return result
+
+
+def _check_times(series) -> None:
+    times = series.times
+    if len(times) > 1 and np.any(np.diff(times) <= 0):
+        bad = int(np.nonzero(np.diff(times) <= 0)[0][0]) + 1
+        info = series.steps[bad]
+        from .errors import SeriesError
+
+        raise SeriesError(f"times do not increase: step {bad} has time {times[bad]:g} after "
+                          f"{times[bad - 1]:g}", where=info.where,
+                          fix="remove duplicated or out-of-order steps, or give a 'time,path' listing")
+
+
+def assemble(series, results: list, options: MeasureOptions) -> MeasureResult:
+    """Series-level work over the ordered step results: tables, tracking, drift, audit, flags."""
+    import pandas as pd
+
+    from .analysis import conservation
+
+    done = [r for r in results if r.skipped is None]
+    skipped = [r.skipped for r in results if r.skipped is not None]
+    for text in skipped:
+        warnings.warn(f"step skipped: {text}", SkippedStepWarning, stacklevel=2)
+    if not done:
+        raise InputError("no step could be analysed", where=os.fspath(series.path),
+                         fix="see the warnings above for each step")
+    steps = pd.DataFrame([r.metrics for r in done])
+    if "phase_volume" in steps:
+        steps = conservation.drift_columns(steps)
+    droplets = pd.DataFrame()
+    events = pd.DataFrame(columns=["time", "step", "kind", "before", "after", "volume_before",
+                                   "volume_after", "closure_error"])
+    if "droplets" in options.analyses:
+        droplets, events = _track(series, done, options)
+    profiles = pd.concat([r.profile for r in done if r.profile is not None], ignore_index=True) \
+        if any(r.profile is not None for r in done) else pd.DataFrame()
+    audit = {}
+    if "interface" in options.analyses and "interface_variance" in steps:
+        from .analysis.interface import diffusion_audit
+
+        audit = diffusion_audit(steps["time"].to_numpy(), steps["interface_variance"].to_numpy(),
+                                physical_diffusivity=options.diffusivity)
+    flags = _flags(steps, droplets, audit, options, skipped)
+    return MeasureResult(steps=steps, droplets=droplets, events=events, profiles=profiles, audit=audit,
+                         flags=flags, skipped=skipped, options=options, results=results)
+
+
+def _track(series, done, options):
+    from .analysis.tracking import DropletTracker
+
+    tracker = DropletTracker(ignore_remerge_within=options.ignore_remerge_within)
+    meshes = {}
+    for r in done:
+        mesh = meshes.get(r.mesh_signature)
+        if mesh is None:
+            mesh = series.read(r.index).mesh
+            meshes = {r.mesh_signature: mesh}
+        tracker.add(r.index, r.time, mesh, r.labels(mesh.n_cells), r.droplets,
+                    velocity_known=options.velocity is not None)
+    return tracker.result()
+
+
+def _flags(steps, droplets, audit, options, skipped) -> list:
+    flags = []
+    if audit.get("widening"):
+        d = audit.get("D_num", float("nan"))
+        text = f"interface keeps widening: numerical diffusivity {d:.3g}"
+        if audit.get("D_ratio") is not None and np.isfinite(audit.get("D_ratio", np.nan)):
+            text += f" ({audit['D_ratio']:.3g} x the physical value)"
+        flags.append(text)
+    if "phase_volume_drift" in steps:
+        worst = float(np.nanmax(np.abs(steps["phase_volume_drift"].to_numpy()))) if len(steps) else 0.0
+        if worst > options.drift_tolerance:
+            flags.append(f"phase volume drifts by up to {100 * worst:.3g} % (tolerance "
+                         f"{100 * options.drift_tolerance:.3g} %)")
+    if "overshoot_volume" in steps:
+        worst = float(np.nanmax(steps["overshoot_volume"].to_numpy()))
+        if worst > 0:
+            flags.append(f"indicator leaves [0, 1]: overshoot volume up to {worst:.3g} "
+                         f"(c from {np.nanmin(steps['c_min']):.4g} to {np.nanmax(steps['c_max']):.4g})")
+    if "under_resolved_interface_fraction" in steps:
+        worst = float(np.nanmax(steps["under_resolved_interface_fraction"].to_numpy()))
+        if worst > 0.1:
+            flags.append(f"interface under-resolved: up to {100 * worst:.3g} % of it has fewer than 4 cells "
+                         "across 0.1 < c < 0.9 (common practice)")
+    if len(droplets) and "under_resolved" in droplets:
+        n = int(droplets["under_resolved"].sum())
+        if n:
+            flags.append(f"{n} droplet observations are smaller than 2 cells in radius; their counts are "
+                         "unreliable (Hendrickson, Weymouth & Yue 2020)")
+    if skipped:
+        flags.append(f"{len(skipped)} step(s) skipped: " + "; ".join(skipped[:3]))
+    return flags

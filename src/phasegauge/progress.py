@@ -1,0 +1,73 @@
+"""Progress of long runs on stderr: steps done, rate and time left."""
+
+from __future__ import annotations
+
+import sys
+import time
+
+__all__ = ["Progress"]
+
+
+class Progress:
+    """A one-line progress display.
+
+    Parameters
+    ----------
+    total : int
+        Number of steps.
+    label : str
+    enabled : bool or None
+        None: show only when stderr is a terminal.
+    stream : file, optional
+        Where to write (default ``sys.stderr``).
+    """
+
+    def __init__(self, total: int, label: str = "steps", *, enabled=None, stream=None):
+        self.total = int(total)
+        self.label = label
+        self.stream = stream or sys.stderr
+        if enabled is None:
+            enabled = bool(getattr(self.stream, "isatty", lambda: False)())
+        self.enabled = enabled
+        self.done = 0
+        self.reused = 0
+        self.start = time.monotonic()
+        self._last = 0.0
+
+    def update(self, n: int = 1, *, reused: bool = False) -> None:
+        self.done += n
+        if reused:
+            self.reused += n
+        now = time.monotonic()
+        if self.enabled and (now - self._last > 0.2 or self.done >= self.total):
+            self._last = now
+            self.stream.write("\r" + self.text(now) + "\033[K")
+            self.stream.flush()
+
+    def text(self, now: float | None = None) -> str:
+        now = time.monotonic() if now is None else now
+        elapsed = max(now - self.start, 1e-9)
+        computed = self.done - self.reused
+        rate = computed / elapsed
+        left = (self.total - self.done) / rate if rate > 0 else float("nan")
+        pct = 100.0 * self.done / self.total if self.total else 100.0
+        extra = f", {self.reused} reused" if self.reused else ""
+        eta = _clock(left) if left == left else "?"
+        return (f"{self.label} {self.done}/{self.total} ({pct:.0f}%{extra}), {rate:.2f}/s, "
+                f"{eta} left")
+
+    def close(self) -> None:
+        if self.enabled:
+            self.stream.write("\r" + self.text() + "\033[K\n")
+            self.stream.flush()
+
+
+def _clock(seconds: float) -> str:
+    seconds = int(round(seconds))
+    if seconds < 60:
+        return f"{seconds}s"
+    minutes, seconds = divmod(seconds, 60)
+    if minutes < 60:
+        return f"{minutes}m{seconds:02d}s"
+    hours, minutes = divmod(minutes, 60)
+    return f"{hours}h{minutes:02d}m"

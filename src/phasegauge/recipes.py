@@ -1,0 +1,219 @@
+"""Recipe files: a whole measure or compare run kept as a TOML file beside the case.
+
+A measure recipe::
+
+    [input]
+    path = "../sample_fields/filament_breakup/filament_breakup.xdmf"   # relative to the recipe
+    field = "phi"
+    range = [-1, 1]
+    phase = "upper"            # optional
+    velocity = "velocity"      # optional
+
+    [interface]                # optional tables; leaving a table out keeps the defaults
+    level = 0.5
+    diffusivity = 1e-4         # physical diffusivity or mobility for the audit
+    contours = true            # write the interface of every step
+
+    [droplets]
+    adjacency = "face"         # or "point"
+    periodic = ["x", "y"]
+    ignore_remerge_within = 0
+
+    [mixing]
+    box = [[0, 1], [0, 1], [-1, 1]]
+    section_axis = "x"
+    section_count = 20         # or section_positions = [...]
+    target = 0.9
+
+    [conservation]
+    densities = [1000.0, 1.0]
+    drift_tolerance = 1e-3
+
+    [run]
+    analyses = ["interface", "droplets", "mixing", "conservation"]
+    workers = 2
+    scheduler = "tcp://host:8786"   # optional Dask cluster
+    strict = false
+    snapshots = 4
+
+    [output]
+    folder = "../out/filament"      # relative to the recipe
+    overwrite = true
+
+A compare recipe has ``[first]`` and ``[second]`` tables (each like ``[input]``,
+with an optional ``label``), an optional ``[compare]`` table
+(``time_tolerance``, ``spacing``, ``level``, ``reference_table``,
+``rising_bubble``), ``[run]`` and ``[output]``.
+
+Unknown tables and keys are refused with the nearest known name suggested.
+"""
+
+from __future__ import annotations
+
+import difflib
+import os
+import sys
+
+from .errors import InputFileNotFound, OptionError
+
+__all__ = ["load_recipe", "run_recipe", "RECIPE_SCHEMA", "COMPARE_SCHEMA"]
+
+_INPUT = {"path": str, "field": str, "range": list, "phase": str, "velocity": str, "label": str}
+
+RECIPE_SCHEMA = {
+    "input": _INPUT,
+    "interface": {"level": (int, float), "diffusivity": (int, float), "contours": bool},
+    "droplets": {"adjacency": str, "periodic": list, "ignore_remerge_within": int},
+    "mixing": {"box": list, "section_axis": str, "section_count": int, "section_positions": list,
+               "target": (int, float)},
+    "conservation": {"densities": list, "drift_tolerance": (int, float)},
+    "run": {"analyses": list, "workers": int, "scheduler": str, "strict": bool, "snapshots": int},
+    "output": {"folder": str, "overwrite": bool},
+}
+
+COMPARE_SCHEMA = {
+    "first": _INPUT,
+    "second": _INPUT,
+    "compare": {"time_tolerance": (int, float), "spacing": (int, float), "level": (int, float),
+                "reference_table": str, "rising_bubble": bool},
+    "run": {"workers": int, "strict": bool},
+    "output": {"folder": str, "overwrite": bool},
+}
+
+_REQUIRED = {"measure": {"input": ("path", "field"), "output": ("folder",)},
+             "compare": {"first": ("path", "field"), "second": ("path", "field"), "output": ("folder",)}}
+
+
+def _load_toml(path: str) -> dict:
+    if sys.version_info >= (3, 11):
+        import tomllib
+    else:  # pragma: no cover
+        import tomli as tomllib
+    if not os.path.exists(path):
+        raise InputFileNotFound("recipe not found", where=path, fix="check the path; examples are in recipes/")
+    try:
+        with open(path, "rb") as handle:
+            return tomllib.load(handle)
+    except tomllib.TOMLDecodeError as exc:
+        raise OptionError(f"not valid TOML ({exc})", where=path,
+                          fix="check quotes, brackets and '=' on the line named") from None
+
+
+def _suggest(name: str, known) -> str:
+    close = difflib.get_close_matches(name, list(known), n=1, cutoff=0.5)
+    return f"did you mean '{close[0]}'?" if close else "known: " + ", ".join(sorted(known))
+
+
+def load_recipe(path) -> dict:
+    """Read and validate a recipe.
+
+    Returns
+    -------
+    dict
+        ``{'kind': 'measure'|'compare', 'base': folder of the recipe, **tables}``
+        with paths made absolute.
+
+    Raises
+    ------
+    OptionError
+        Unknown table or key (with the nearest known one), wrong value type,
+        missing required key.
+    """
+    path = os.fspath(path)
+    data = _load_toml(path)
+    kind = "compare" if ("first" in data or "second" in data) else "measure"
+    schema = COMPARE_SCHEMA if kind == "compare" else RECIPE_SCHEMA
+    for table, entries in data.items():
+        if table not in schema:
+            raise OptionError(f"unknown table [{table}]; {_suggest(table, schema)}", where=path,
+                              fix="see the recipe format in the README")
+        if not isinstance(entries, dict):
+            raise OptionError(f"[{table}] must be a table", where=path, fix=f"write it as [{table}] with keys below")
+        for key, value in entries.items():
+            if key not in schema[table]:
+                raise OptionError(f"unknown key '{key}' in [{table}]; {_suggest(key, schema[table])}",
+                                  where=path, fix="see the recipe format in the README")
+            expected = schema[table][key]
+            if isinstance(value, bool) and expected in ((int, float), int):
+                ok = False
+            else:
+                ok = isinstance(value, expected)
+            if not ok:
+                names = expected.__name__ if isinstance(expected, type) else "number"
+                raise OptionError(f"[{table}] {key} must be a {_type_word(names)}, found {value!r}",
+                                  where=path, fix="correct the value")
+    for table, keys in _REQUIRED[kind].items():
+        for key in keys:
+            if key not in data.get(table, {}):
+                raise OptionError(f"[{table}] needs '{key}'", where=path, fix=f"add {key} = ... under [{table}]")
+    base = os.path.dirname(os.path.abspath(path))
+    for table in ("input", "first", "second"):
+        if table in data and "path" in data[table]:
+            data[table]["path"] = _resolve(base, data[table]["path"])
+    data["output"]["folder"] = _resolve(base, data["output"]["folder"])
+    if "compare" in data and "reference_table" in data["compare"]:
+        data["compare"]["reference_table"] = _resolve(base, data["compare"]["reference_table"])
+    data["kind"] = kind
+    data["base"] = base
+    return data
+
+
+def _type_word(name: str) -> str:
+    return {"str": "text in quotes", "list": "list [..]", "bool": "true or false", "int": "whole number"}.get(
+        name, name)
+
+
+def _resolve(base: str, value: str) -> str:
+    value = os.path.expanduser(value)
+    if any(ch in value for ch in "*?[") or os.path.isabs(value):
+        return value if os.path.isabs(value) else os.path.join(base, value)
+    return os.path.normpath(os.path.join(base, value))
+
+
+def measure_arguments(recipe: dict) -> dict:
+    """Keyword arguments of :func:`phasegauge.pipeline.measure` for a measure recipe."""
+    from .pipeline import ANALYSES, MeasureOptions
+
+    inp = recipe["input"]
+    iface = recipe.get("interface", {})
+    drops = recipe.get("droplets", {})
+    mix = recipe.get("mixing", {})
+    cons = recipe.get("conservation", {})
+    run = recipe.get("run", {})
+    out = recipe["output"]
+    options = MeasureOptions(
+        field=inp["field"], value_range=tuple(inp.get("range", (0.0, 1.0))), phase=inp.get("phase", "upper"),
+        level=iface.get("level", 0.5), velocity=inp.get("velocity"),
+        analyses=tuple(run.get("analyses", ANALYSES)), connectivity=drops.get("adjacency", "face"),
+        periodic=tuple(drops.get("periodic", ())), ignore_remerge_within=drops.get("ignore_remerge_within", 0),
+        densities=tuple(cons["densities"]) if "densities" in cons else None,
+        diffusivity=iface.get("diffusivity"), box=tuple(map(tuple, mix["box"])) if "box" in mix else None,
+        section_axis=mix.get("section_axis"), section_count=mix.get("section_count", 20),
+        section_positions=tuple(mix["section_positions"]) if "section_positions" in mix else None,
+        mixing_target=mix.get("target", 0.9), drift_tolerance=cons.get("drift_tolerance", 1e-3),
+        strict=run.get("strict", False))
+    return dict(path=inp["path"], options=options, out=out["folder"], overwrite=out.get("overwrite", False),
+                workers=run.get("workers", 1), scheduler=run.get("scheduler"),
+                write_contours=iface.get("contours", True), snapshots=run.get("snapshots", 4))
+
+
+def run_recipe(path, *, overwrite=None, resume: bool = False, workers=None, progress=None):
+    """Run a recipe file; returns the measure or compare result."""
+    recipe = load_recipe(path)
+    if recipe["kind"] == "measure":
+        from .pipeline import measure
+
+        kwargs = measure_arguments(recipe)
+        if overwrite is not None:
+            kwargs["overwrite"] = overwrite
+        if workers is not None:
+            kwargs["workers"] = workers
+        return measure(resume=resume, progress=progress, **kwargs)
+    from .comparison import compare_runs, compare_arguments
+
+    kwargs = compare_arguments(recipe)
+    if overwrite is not None:
+        kwargs["overwrite"] = overwrite
+    if workers is not None:
+        kwargs["workers"] = workers
+    return compare_runs(progress=progress, **kwargs)

@@ -1,0 +1,203 @@
+"""The output folder of a measure run: CSV tables, PNG plots, report.html, manifest.json."""
+
+from __future__ import annotations
+
+import os
+import platform
+import time
+
+import numpy as np
+
+from .. import __version__
+from ._files import (RUN_MARKER, atomic_save_figure, atomic_write_csv, atomic_write_json,
+                     atomic_write_text, sha256_of)
+from ._html import Page
+
+__all__ = ["write_measure_report", "measure_figures", "input_files"]
+
+CAUTION = ("These figures describe the simulation, not the physical process. Design decisions rest on "
+           "validated models, experiments and licensed engineering judgement under local codes.")
+
+
+def input_files(series, results=None) -> list:
+    """Every input file of the series with its size and SHA-256 (reusing hashes workers computed)."""
+    known = {}
+    for r in results or []:
+        if getattr(r, "file_sha256", ""):
+            known[r.path] = r.file_sha256
+    files = list(series.files)
+    if series.kind == "collection":
+        files += _xdmf_data_files(series.path)
+    if series.kind == "listing":
+        files = [series.path] + files
+    out = []
+    for f in files:
+        if not os.path.exists(f):
+            continue
+        out.append({"path": os.path.abspath(f), "bytes": os.path.getsize(f),
+                    "sha256": known.get(f) or sha256_of(f)})
+    return out
+
+
+def _xdmf_data_files(path: str) -> list:
+    import re
+
+    folder = os.path.dirname(os.path.abspath(path))
+    with open(path, encoding="utf-8", errors="replace") as handle:
+        text = handle.read()
+    names = sorted(set(re.findall(r">\s*([^<>:\s]+\.(?:h5|hdf5|hdf))\s*:", text)))
+    return [n if os.path.isabs(n) else os.path.join(folder, n) for n in names]
+
+
+def measure_figures(result) -> list:
+    """The report's plots as (file stem, caption, Figure); empty plots are left out."""
+    import matplotlib
+
+    matplotlib.use("Agg", force=False)
+    from . import _plots
+
+    return _plots.measure_figures(result)
+
+
+def write_measure_report(out, result, *, series, started: float, execution: dict) -> None:
+    """Write every output of a measure run into ``out`` (each file atomically)."""
+    import matplotlib.pyplot as plt
+
+    out = os.fspath(out)
+    t0 = time.time()
+    written = []
+
+    def table(name, frame):
+        if frame is None:
+            return
+        atomic_write_csv(os.path.join(out, name), frame)
+        written.append(name)
+
+    table("steps.csv", result.steps)
+    if "droplets" in result.options.analyses:
+        table("droplets.csv", result.droplets)
+        table("events.csv", result.events)
+    if result.profiles is not None and len(result.profiles):
+        table("profiles.csv", result.profiles)
+    if result.audit:
+        atomic_write_json(os.path.join(out, "diffusion_audit.json"), result.audit)
+        written.append("diffusion_audit.json")
+    pngs = []
+    for stem, caption, fig in measure_figures(result):
+        name = f"{stem}.png"
+        png = atomic_save_figure(os.path.join(out, name), fig)
+        plt.close(fig)
+        pngs.append((caption, png))
+        written.append(name)
+    page = _page(result, series, pngs, execution)
+    atomic_write_text(os.path.join(out, "report.html"), page.render())
+    written.append("report.html")
+    contours = sorted(os.listdir(os.path.join(out, "contours"))) if os.path.isdir(
+        os.path.join(out, "contours")) else []
+    manifest = {
+        "tool": "phasegauge",
+        "version": __version__,
+        "command": "measure",
+        "created": time.strftime("%Y-%m-%dT%H:%M:%S%z"),
+        "series": {"path": os.path.abspath(series.path), "kind": series.kind, "steps": len(series),
+                   "time_origin": "+".join(series.time_origins)},
+        "inputs": input_files(series, result.results),
+        "options": _options_dict(result.options),
+        "execution": execution,
+        "skipped_steps": result.skipped,
+        "warnings": sorted({m for r in result.results for m in r.messages}),
+        "flags": result.flags,
+        "outputs": written + [f"contours/{c}" for c in contours],
+        "timings": {"total_seconds": round(time.time() - started, 3),
+                    "report_seconds": round(time.time() - t0, 3),
+                    "step_seconds_sum": round(sum(r.seconds for r in result.results if not r.reused), 3),
+                    "steps_reused": sum(1 for r in result.results if r.reused)},
+        "machine": {"python": platform.python_version(), "platform": platform.platform()},
+    }
+    atomic_write_json(os.path.join(out, "manifest.json"), manifest)
+    atomic_write_json(os.path.join(out, RUN_MARKER), {"run_key": _marker_key(out), "state": "complete"})
+
+
+def _marker_key(out: str) -> str:
+    import json
+
+    try:
+        with open(os.path.join(out, RUN_MARKER), encoding="utf-8") as handle:
+            return json.load(handle).get("run_key", "")
+    except OSError:
+        return ""
+
+
+def _options_dict(options) -> dict:
+    import dataclasses
+
+    return {k: (list(v) if isinstance(v, tuple) else v) for k, v in dataclasses.asdict(options).items()}
+
+
+def _key_figures(result) -> list:
+    steps = result.steps
+    pairs = [("steps analysed", len(steps))]
+
+    def add(label, column, how):
+        if column in steps and len(steps):
+            values = steps[column].to_numpy(dtype=float)
+            if np.isfinite(values).any():
+                pairs.append((label, float(how(values))))
+
+    add("time, first", "time", lambda v: v[0])
+    add("time, last", "time", lambda v: v[-1])
+    add("phase volume, first step", "phase_volume", lambda v: v[0])
+    add("largest |phase-volume drift| (relative)", "phase_volume_drift", lambda v: np.nanmax(np.abs(v)))
+    add("indicator minimum", "c_min", np.nanmin)
+    add("indicator maximum", "c_max", np.nanmax)
+    add("interface width (5-95 %), first step", "interface_width", lambda v: v[0])
+    add("interface width (5-95 %), last step", "interface_width", lambda v: v[-1])
+    add("interface width in cells, last step", "interface_width_cells", lambda v: v[-1])
+    add("droplets, first step", "droplet_count", lambda v: v[0])
+    add("droplets, last step", "droplet_count", lambda v: v[-1])
+    add("mixing index, last step", "mixing_index", lambda v: v[-1])
+    add("mixing length, last step", "mixing_length", lambda v: v[-1])
+    audit = result.audit or {}
+    for key, label in (("D_num", "numerical diffusivity"), ("D_num_stderr", "numerical diffusivity, standard error"),
+                       ("D_ratio", "numerical / physical diffusivity")):
+        if audit.get(key) is not None:
+            pairs.append((label, audit[key]))
+    return pairs
+
+
+def _page(result, series, pngs, execution) -> Page:
+    opts = result.options
+    page = Page("phasegauge measure report",
+                f"{os.path.abspath(series.path)} · {len(series)} steps · field '{opts.field}' mapped from "
+                f"[{opts.value_range[0]:g}, {opts.value_range[1]:g}] ({opts.phase} phase) · "
+                f"phasegauge {__version__}")
+    page.heading("Findings")
+    if result.flags:
+        page.items(result.flags, css="flag")
+    else:
+        page.items(["no flags: interface not widening, phase volume within tolerance, indicator bounded, "
+                    "interface and droplets resolved"], css="ok")
+    page.heading("Key figures")
+    page.key_values(_key_figures(result))
+    if pngs:
+        page.heading("Plots")
+        page.figures(pngs)
+    if "droplets" in opts.analyses:
+        page.heading("Droplet events")
+        page.table(result.events)
+    page.heading("What was run")
+    page.key_values([("series", os.path.abspath(series.path)), ("series kind", series.kind),
+                     ("time from", "+".join(series.time_origins)), ("analyses", ", ".join(opts.analyses)),
+                     ("interface level", opts.level), ("velocity field", opts.velocity or "none"),
+                     ("droplet adjacency", opts.connectivity),
+                     ("periodic axes", ", ".join(opts.periodic) or "none"),
+                     ("workers", execution.get("workers")), ("scheduler", execution.get("scheduler") or "none")])
+    page.paragraph("Tables: steps.csv (one row per step), droplets.csv, events.csv"
+                   + (", profiles.csv" if len(result.profiles) else "")
+                   + "; interface geometry per step in contours/; inputs, options and timings in manifest.json.",
+                   "note")
+    if result.skipped:
+        page.heading("Skipped steps")
+        page.items(result.skipped, css="flag")
+    page.paragraph(CAUTION, "note")
+    return page
