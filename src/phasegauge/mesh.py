@@ -411,20 +411,28 @@ class Mesh:
         """Sparse (n_cells, n_points) matrix, 1 where a point is a corner of a cell."""
         from scipy import sparse
 
-        rows, cols = [], []
-        for block, start in zip(self.blocks, self.block_offsets[:-1]):
+        indptr = [np.zeros(1, dtype=np.int64)]
+        last = 0
+        for block in self.blocks:
             n, k = block.connectivity.shape
-            rows.append(np.repeat(np.arange(start, start + n), k))
-            cols.append(block.connectivity.ravel())
-        rows = np.concatenate(rows)
-        cols = np.concatenate(cols)
-        m = sparse.csr_matrix((np.ones(rows.size), (rows, cols)), shape=(self.n_cells, self.n_points))
-        m.data[:] = 1.0  # a corner repeated in a degenerate cell counts once
+            indptr.append(last + k * np.arange(1, n + 1, dtype=np.int64))
+            last += n * k
+        indices = np.concatenate([b.connectivity.ravel() for b in self.blocks])
+        m = sparse.csr_matrix((np.ones(indices.size), indices, np.concatenate(indptr)),
+                              shape=(self.n_cells, self.n_points))
+        if any(b.cell_type == "polygon" for b in self.blocks) or self.degenerate_cells:
+            m.sum_duplicates()
+            m.data[:] = 1.0  # a corner repeated in a degenerate cell counts once
         return m
 
     @cached_property
     def _faces(self):
-        """All cell faces (3D) or edges (2D), sorted corners padded with -1, and their cell."""
+        """All cell faces (3D) or edges (2D) as sorted corners, their owner cell, grouped.
+
+        Returns ``(faces, owners, order, starts)``: faces (m, w) with sorted corners (triangles
+        padded with -1 in front), owners (m,), ``order`` a permutation that groups equal
+        faces together and ``starts`` the first position of each group in that order.
+        """
         rows, owners = [], []
         width = 4 if self.dimension == 3 else 2
         for block, start in zip(self.blocks, self.block_offsets[:-1]):
@@ -441,25 +449,27 @@ class Mesh:
                 f[:, width - len(face):] = conn[:, list(face)]
                 rows.append(f)
                 owners.append(cell_ids)
-        faces = np.sort(np.concatenate(rows), axis=1)
+        faces = _sort_small_rows(np.concatenate(rows))
         owners = np.concatenate(owners)
-        return faces, owners
+        order, starts = _group_rows(faces)
+        return faces, owners, order, starts
 
     @cached_property
     def face_pairs(self) -> np.ndarray:
-        """Pairs of cells sharing a face (3D) or an edge (2D), shape (n_pairs, 2).
+        """Pairs of cells sharing a face (3D) or an edge (2D), shape (n_pairs, 2), sorted.
 
         Faces are matched by their corner points, so cells must share points
         (a conforming mesh); faces with hanging nodes do not connect.
         """
-        faces, owners = self._faces
-        order = np.lexsort(faces.T[::-1])
-        sf = faces[order]
-        same = np.all(sf[1:] == sf[:-1], axis=1)
-        idx = np.nonzero(same)[0]
-        pairs = np.stack([owners[order[idx]], owners[order[idx + 1]]], axis=1)
-        pairs = pairs[pairs[:, 0] != pairs[:, 1]]
-        return np.unique(np.sort(pairs, axis=1), axis=0) if pairs.size else pairs.reshape(0, 2)
+        faces, owners, order, starts = self._faces
+        sizes = np.diff(np.append(starts, len(order)))
+        shared = starts[sizes == 2]
+        pairs = np.stack([owners[order[shared]], owners[order[shared + 1]]], axis=1)
+        pairs = _sort_small_rows(pairs[pairs[:, 0] != pairs[:, 1]])
+        if not pairs.size:
+            return pairs.reshape(0, 2)
+        key = np.unique(pairs[:, 0] * np.int64(self.n_cells) + pairs[:, 1])
+        return np.stack([key // self.n_cells, key % self.n_cells], axis=1)
 
     @cached_property
     def boundary_faces(self) -> tuple:
@@ -468,14 +478,10 @@ class Mesh:
         ``corners`` has shape (n, 4) in 3D (triangles padded with -1 in front)
         or (n, 2) in 2D.
         """
-        faces, owners = self._faces
-        order = np.lexsort(faces.T[::-1])
-        sf = faces[order]
-        diff = np.any(sf[1:] != sf[:-1], axis=1)
-        first = np.concatenate([[True], diff])
-        last = np.concatenate([diff, [True]])
-        lone = first & last
-        return sf[lone], owners[order[lone]]
+        faces, owners, order, starts = self._faces
+        sizes = np.diff(np.append(starts, len(order)))
+        lone = order[starts[sizes == 1]]
+        return faces[lone], owners[lone]
 
     def adjacency(self, kind: str = "face"):
         """Sparse symmetric (n_cells, n_cells) cell adjacency matrix.
@@ -516,9 +522,10 @@ class Mesh:
                 local = _EDGES[block.cell_type]
             for a, b in local:
                 rows.append(np.stack([conn[:, a], conn[:, b]], axis=1))
-        e = np.sort(np.concatenate(rows), axis=1)
+        e = _sort_small_rows(np.concatenate(rows))
         e = e[e[:, 0] != e[:, 1]]
-        return np.unique(e, axis=0)
+        key = np.unique(e[:, 0] * np.int64(self.n_points) + e[:, 1])
+        return np.stack([key // self.n_points, key % self.n_points], axis=1)
 
     # ---------------------------------------------------------- regular grids
     @cached_property
@@ -636,6 +643,56 @@ class Mesh:
 
 
 # ---------------------------------------------------------------------------
+# grouping equal rows
+
+_MIX = np.array([0x9E3779B97F4A7C15, 0xC2B2AE3D27D4EB4F, 0x165667B19E3779F9, 0x27D4EB2F165667C5],
+                dtype=np.uint64)
+
+
+def _sort_small_rows(rows: np.ndarray) -> np.ndarray:
+    """Sort each row of an (n, 2) or (n, 4) array with a sorting network (fast for many rows)."""
+    w = rows.shape[1]
+    if w == 2:
+        return np.stack([np.minimum(rows[:, 0], rows[:, 1]), np.maximum(rows[:, 0], rows[:, 1])], axis=1)
+    if w != 4:
+        return np.sort(rows, axis=1)
+    c = [rows[:, j].copy() for j in range(4)]
+    for a, b in ((0, 1), (2, 3), (0, 2), (1, 3), (1, 2)):
+        lo = np.minimum(c[a], c[b])
+        c[b] = np.maximum(c[a], c[b])
+        c[a] = lo
+    return np.stack(c, axis=1)
+
+
+def _group_rows(rows: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    """Group equal rows of a small-width int array.
+
+    Returns ``order`` (a permutation putting equal rows next to each other) and
+    ``starts`` (the first position of each group in that order). Rows are
+    hashed to one 64-bit key and sorted by it; equality of rows within a key
+    group is then checked, and the rare key collision falls back to an exact
+    lexicographic sort.
+    """
+    with np.errstate(over="ignore"):
+        key = np.zeros(rows.shape[0], dtype=np.uint64)
+        for j in range(rows.shape[1]):
+            key = (key ^ (rows[:, j].astype(np.uint64) + np.uint64(1))) * _MIX[j % 4]
+            key ^= key >> np.uint64(29)
+    order = np.argsort(key, kind="stable")
+    ks = key[order]
+    new_key = np.concatenate([[True], ks[1:] != ks[:-1]])
+    sr = rows[order]
+    same_row = np.concatenate([[True], np.all(sr[1:] == sr[:-1], axis=1)])
+    if np.any(~new_key & ~same_row):  # two different rows share a key: sort exactly
+        order = np.lexsort(rows.T[::-1])
+        sr = rows[order]
+        boundary = np.concatenate([[True], np.any(sr[1:] != sr[:-1], axis=1)])
+    else:
+        boundary = new_key
+    return order, np.nonzero(boundary)[0]
+
+
+# ---------------------------------------------------------------------------
 # per-block geometry
 
 _G = 0.5 - 0.5 / np.sqrt(3.0), 0.5 + 0.5 / np.sqrt(3.0)  # 2-point Gauss on [0, 1]
@@ -717,11 +774,20 @@ _RULES = {"quad": list(_quad_rule()), "hexahedron": list(_hex_rule()), "wedge": 
 
 
 def _simplex(X: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
-    """Signed measure and centroid of triangles (2D) or tetrahedra (3D)."""
-    E = X[:, 1:, :] - X[:, :1, :]  # (n, d, d): rows are edge vectors
+    """Signed measure and centroid of triangles (2D) or tetrahedra (3D), X of shape (n, d+1, d)."""
     d = X.shape[2]
-    factor = 0.5 if d == 2 else 1.0 / 6.0
-    return _det(np.swapaxes(E, 1, 2)) * factor, X.mean(axis=1)
+    p0 = X[:, 0, :]
+    if d == 2:
+        a = X[:, 1, :] - p0
+        b = X[:, 2, :] - p0
+        return 0.5 * (a[:, 0] * b[:, 1] - a[:, 1] * b[:, 0]), X.mean(axis=1)
+    a = X[:, 1, :] - p0
+    b = X[:, 2, :] - p0
+    c = X[:, 3, :] - p0
+    det = (a[:, 0] * (b[:, 1] * c[:, 2] - b[:, 2] * c[:, 1])
+           - a[:, 1] * (b[:, 0] * c[:, 2] - b[:, 2] * c[:, 0])
+           + a[:, 2] * (b[:, 0] * c[:, 1] - b[:, 1] * c[:, 0]))
+    return det / 6.0, X.mean(axis=1)
 
 
 def _block_geometry(cell_type: str, X: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
