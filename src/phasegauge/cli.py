@@ -241,3 +241,45 @@ def samples(directory, only, overwrite):
     written = write_samples(directory, names=names)
     for name, path in written.items():
         click.echo(f"{name}: {path}")
+
+
+@main.command()
+@click.argument("path_a")
+@click.argument("path_b")
+@click.option("--field-a", required=True, help="Field of the first run mapped to the indicator.")
+@click.option("--field-b", required=True, help="Field of the second run.")
+@click.option("--range-a", default="0,1", show_default=True, help="LO,HI of the first run's field.")
+@click.option("--range-b", default="0,1", show_default=True, help="LO,HI of the second run's field.")
+@click.option("--phase-a", type=click.Choice(["upper", "lower"]), default="upper", show_default=True)
+@click.option("--phase-b", type=click.Choice(["upper", "lower"]), default="upper", show_default=True)
+@click.option("--velocity-a", default=None, help="Velocity field of the first run (rise velocity).")
+@click.option("--velocity-b", default=None, help="Velocity field of the second run.")
+@click.option("--label-a", default="first", show_default=True, help="Name of the first run in tables.")
+@click.option("--label-b", default="second", show_default=True, help="Name of the second run in tables.")
+@click.option("--level", type=float, default=0.5, show_default=True, help="Indicator level of the interfaces.")
+@click.option("--time-tolerance", type=float, default=None,
+              help="Pair steps whose times differ by at most this (default: half the output interval).")
+@click.option("--spacing", type=float, default=None,
+              help="Spacing of the common sampling grid (default: finer than both meshes).")
+@click.option("--rising-bubble", is_flag=True,
+              help="Check the first run against the rising-bubble benchmark, case 1 (Hysing et al. 2009).")
+@click.option("--reference-table", type=click.Path(dir_okay=False), default=None,
+              help="CSV of reference values to check the first run against.")
+@click.option("--out", "-o", "out", required=True, type=click.Path(file_okay=False), help="Output folder.")
+@click.option("--overwrite", is_flag=True, help="Replace an existing output folder.")
+@click.option("--workers", "-j", type=int, default=1, show_default=True, help="Local worker processes.")
+@click.option("--quiet", "-q", is_flag=True, help="No progress display.")
+def compare(path_a, path_b, field_a, field_b, range_a, range_b, phase_a, phase_b, velocity_a, velocity_b,
+            label_a, label_b, level, time_tolerance, spacing, rising_bubble, reference_table, out, overwrite,
+            workers, quiet):
+    """Compare two runs of the same case (for example diffuse versus sharp interface)."""
+    from .comparison import RunSpec, compare_runs
+    from .indicator import parse_range
+
+    first = RunSpec(path_a, field_a, parse_range(range_a), phase_a, velocity_a, label_a)
+    second = RunSpec(path_b, field_b, parse_range(range_b), phase_b, velocity_b, label_b)
+    result = compare_runs(first, second, out=out, overwrite=overwrite, level=level,
+                          time_tolerance=time_tolerance, spacing=spacing, reference_table=reference_table,
+                          rising_bubble=rising_bubble, workers=workers, progress=None if not quiet else False)
+    if not quiet:
+        click.echo(f"compared {len(result.pairs)} paired times; report: {os.path.join(out, 'report.html')}")

@@ -1,0 +1,84 @@
+"""The output folder of a comparison: comparison.csv, statistics, checks, plots, report.html, manifest."""
+
+from __future__ import annotations
+
+import dataclasses
+import os
+import platform
+import time
+
+from .. import __version__
+from ._files import (RUN_MARKER, atomic_save_figure, atomic_write_csv, atomic_write_json,
+                     atomic_write_text)
+from ._html import Page
+from ._measure_report import CAUTION, input_files
+
+__all__ = ["write_compare_report"]
+
+
+def write_compare_report(out, result, *, specs, overlays, started: float, level: float) -> None:
+    """Write every output of a comparison into ``out`` (each file atomically)."""
+    import matplotlib
+
+    matplotlib.use("Agg", force=False)
+    import matplotlib.pyplot as plt
+
+    from ..io import Series
+    from . import _plots_compare as plots
+
+    out = os.fspath(out)
+    written = []
+    for name, frame in (("comparison.csv", result.comparison), ("pairs.csv", result.pairs),
+                        ("droplet_statistics.csv", result.droplet_statistics),
+                        ("reference_checks.csv", result.reference_checks)):
+        if frame is not None and len(frame):
+            atomic_write_csv(os.path.join(out, name), frame)
+            written.append(name)
+    for label, res in zip(result.labels, (result.first, result.second)):
+        atomic_write_csv(os.path.join(out, f"steps_{label}.csv"), res.steps)
+        written.append(f"steps_{label}.csv")
+    pngs = []
+    for stem, caption, fig in plots.compare_figures(result, overlays=overlays, level=level):
+        png = atomic_save_figure(os.path.join(out, f"{stem}.png"), fig)
+        plt.close(fig)
+        pngs.append((caption, png))
+        written.append(f"{stem}.png")
+    a, b = result.labels
+    page = Page("phasegauge comparison report",
+                f"{a}: {os.path.abspath(specs[0].path)} ('{specs[0].field}')  ·  "
+                f"{b}: {os.path.abspath(specs[1].path)} ('{specs[1].field}')  ·  phasegauge {__version__}")
+    page.heading("Paired steps")
+    unpaired = "; ".join(f"{k}: {len(v)} unpaired" for k, v in result.unpaired.items())
+    page.paragraph(f"{len(result.pairs)} paired times; {unpaired}.")
+    if len(result.reference_checks):
+        page.heading("Published and reference values")
+        page.table(result.reference_checks)
+    page.heading("Shape and metric comparison")
+    cols = [c for c in ("time", "mismatch_volume", "dice", "hausdorff", "hausdorff_95", "mean_distance",
+                        "field_difference") if c in result.comparison]
+    page.table(result.comparison[cols] if cols else result.comparison)
+    if pngs:
+        page.heading("Plots")
+        page.figures(pngs)
+    if result.droplet_statistics is not None and len(result.droplet_statistics):
+        page.heading("Droplet statistics")
+        page.table(result.droplet_statistics)
+    page.paragraph("All columns are in comparison.csv; each run's own steps table is in steps_<label>.csv.", "note")
+    page.paragraph(CAUTION, "note")
+    atomic_write_text(os.path.join(out, "report.html"), page.render())
+    written.append("report.html")
+    inputs = []
+    for spec in specs:
+        s = Series(spec.path)
+        inputs += input_files(s)
+        s.close()
+    manifest = {
+        "tool": "phasegauge", "version": __version__, "command": "compare",
+        "created": time.strftime("%Y-%m-%dT%H:%M:%S%z"),
+        "runs": [dataclasses.asdict(s) for s in specs],
+        "inputs": inputs, "level": level, "outputs": written,
+        "timings": {"total_seconds": round(time.time() - started, 3)},
+        "machine": {"python": platform.python_version(), "platform": platform.platform()},
+    }
+    atomic_write_json(os.path.join(out, "manifest.json"), manifest)
+    atomic_write_json(os.path.join(out, RUN_MARKER), {"run_key": "", "state": "complete"})
