@@ -195,6 +195,9 @@ def measure(path, field, value_range, phase, level, velocity, out, analyses, adj
 def _summary(result, out, quiet):
     if quiet:
         return
+    if hasattr(result, "pairs"):
+        click.echo(f"compared {len(result.pairs)} paired times; report: {os.path.join(out, 'report.html')}")
+        return
     n = len(result.steps)
     click.echo(f"measured {n} step{'s' if n != 1 else ''}; report: {os.path.join(out, 'report.html')}")
     for flag in result.flags:
