@@ -70,7 +70,7 @@ def cahn_hilliard_energy(phi, lengths, *, epsilon: float) -> float:
     cell = float(np.prod([length / n for n, length in zip(phi.shape, lengths)]))
     k = _wavenumbers(phi.shape, lengths)
     ph = np.fft.rfftn(phi)
-    grad2 = sum(np.fft.irfftn(1j * kk * ph, s=phi.shape) ** 2 for kk in k)
+    grad2 = sum(np.fft.irfftn(1j * kk * ph, s=phi.shape, axes=tuple(range(phi.ndim))) ** 2 for kk in k)
     density = 0.5 * epsilon * grad2 + (1.0 - phi**2) ** 2 / (4.0 * epsilon)
     return float(density.sum() * cell)
 
@@ -131,7 +131,7 @@ def cahn_hilliard(phi0, lengths, *, epsilon: float, mobility: float, dt: float, 
         if velocity is not None:
             rhs = rhs - dt * sum(1j * kk * np.fft.rfftn(u * phi) for kk, u in zip(k, velocity))
         ph = rhs / implicit
-        phi = np.fft.irfftn(ph, s=phi.shape)
+        phi = np.fft.irfftn(ph, s=phi.shape, axes=tuple(range(phi.ndim)))
         if energies:
             energy.append(cahn_hilliard_energy(phi, lengths, epsilon=epsilon))
         if step in targets:
