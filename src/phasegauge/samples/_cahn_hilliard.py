@@ -70,7 +70,8 @@ def cahn_hilliard_energy(phi, lengths, *, epsilon: float) -> float:
     cell = float(np.prod([length / n for n, length in zip(phi.shape, lengths)]))
     k = _wavenumbers(phi.shape, lengths)
     ph = np.fft.rfftn(phi)
-    grad2 = sum(np.fft.irfftn(1j * kk * ph, s=phi.shape, axes=tuple(range(phi.ndim))) ** 2 for kk in k)
+    axes = tuple(range(phi.ndim))
+    grad2 = sum(np.fft.irfftn(1j * kk * ph, s=phi.shape, axes=axes) ** 2 for kk in k)
     density = 0.5 * epsilon * grad2 + (1.0 - phi**2) ** 2 / (4.0 * epsilon)
     return float(density.sum() * cell)
 
