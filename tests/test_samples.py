@@ -70,6 +70,11 @@ def test_vtu_steps_hold_their_time_as_field_data():
     files = sorted(os.listdir(committed("vortex_upwind")))
     raw = meshio.read(os.path.join(committed("vortex_upwind"), files[4]))
     assert raw.field_data["TimeValue"].tolist() == [0.5]   # step 4 of 16 over T = 2
+    # VTK's own reader (through pyvista [lib]) finds the same field data
+    import pyvista
+
+    mesh = pyvista.read(os.path.join(committed("vortex_upwind"), files[4]))
+    assert mesh.field_data["TimeValue"].tolist() == [0.5]
     series = Series(committed("vortex_upwind"))
     assert series.time_origins == ["file"]
     assert np.allclose(series.times, np.linspace(0.0, 2.0, 17), rtol=0, atol=1e-15)
