@@ -245,10 +245,11 @@ def _scale_from_samples(sample: np.ndarray, spacing: np.ndarray) -> float:
     if variance <= 0:
         return np.nan
     padded = [2 * n for n in sample.shape]
-    spectrum = np.fft.rfftn(fluctuation, padded)
-    product = np.fft.irfftn(spectrum * np.conj(spectrum), padded)
-    mask_spectrum = np.fft.rfftn(mask.astype(np.float64), padded)
-    overlap = np.fft.irfftn(mask_spectrum * np.conj(mask_spectrum), padded)
+    axes = tuple(range(sample.ndim))
+    spectrum = np.fft.rfftn(fluctuation, padded, axes=axes)
+    product = np.fft.irfftn(spectrum * np.conj(spectrum), padded, axes=axes)
+    mask_spectrum = np.fft.rfftn(mask.astype(np.float64), padded, axes=axes)
+    overlap = np.fft.irfftn(mask_spectrum * np.conj(mask_spectrum), padded, axes=axes)
     # lag of every entry (negative lags wrap around) and its length
     lags = np.meshgrid(*[np.fft.fftfreq(n, 1.0 / n) * h for n, h in zip(padded, spacing)], indexing="ij")
     radius = np.sqrt(sum(lag ** 2 for lag in lags))
