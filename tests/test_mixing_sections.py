@@ -121,13 +121,16 @@ def _intensity_exact(x, kappa, terms=200):
     return np.sum(8 / (n * np.pi) ** 2 * np.exp(-2 * (n * np.pi) ** 2 * kappa * np.atleast_1d(x)), axis=0)
 
 
-@pytest.mark.parametrize("kind,shape", [("mixed", (60, 24)), ("triangle", (60, 24)),
+@pytest.mark.parametrize("kind,shape", [("mixed", (60, 24)), ("delaunay", None),
                                         ("mixed", (30, 16, 2))])
 def test_two_streams_in_plug_flow(kind, shape):
     kappa = 0.05
     length = 6.0
-    bounds = [(0.0, length), (0.0, 1.0)] + ([(0.0, 0.2)] if len(shape) == 3 else [])
-    mesh = grid_mesh(shape, bounds, kind=kind, jitter=0.2 if len(shape) == 2 else 0.0, seed=6)
+    if kind == "delaunay":
+        mesh = delaunay_mesh(3000, [(0.0, length), (0.0, 1.0)], seed=6)
+    else:
+        bounds = [(0.0, length), (0.0, 1.0)] + ([(0.0, 0.2)] if len(shape) == 3 else [])
+        mesh = grid_mesh(shape, bounds, kind=kind, jitter=0.2 if len(shape) == 2 else 0.0, seed=6)
     c = _two_streams(mesh.points[:, 0], mesh.points[:, 1], kappa)
     velocity = np.zeros((mesh.n_points, 3))
     velocity[:, 0] = 1.0
@@ -135,11 +138,11 @@ def test_two_streams_in_plug_flow(kind, shape):
     positions = np.arange(0.25, length, 0.25)
     table = cross_sections(mesh, indicator, positions=positions, velocity=velocity)
     exact_index = 1 - np.sqrt(_intensity_exact(positions, kappa))
-    # piecewise-linear interpolation of c across the diffusion layer; the layer is thinnest
-    # near the inlet, where the error is largest: 0.02 there, 0.005 from x = 1 on
-    error = np.abs(table["mixing_index"].to_numpy() - exact_index)
-    assert error.max() < 0.02
-    assert error[positions >= 1.0].max() < 0.005
+    # piecewise-linear interpolation of c across the diffusion layer smooths it: the computed
+    # mixing index is high by at most 0.002 here (measured on these meshes); bound 0.004
+    error = table["mixing_index"].to_numpy() - exact_index
+    assert np.all(error > -1e-4)
+    assert np.abs(error).max() < 0.004
     # plug flow: flow-weighted equals area-weighted
     np.testing.assert_allclose(table["mixing_index_flow"], table["mixing_index"], atol=1e-10)
     np.testing.assert_allclose(table["mean_area_weighted"], 0.5, atol=2e-3)
@@ -147,9 +150,10 @@ def test_two_streams_in_plug_flow(kind, shape):
     # x = ln(800 / pi^2) / (2 pi^2 kappa) = 4.45; solved on the full series  [calc]
     exact_length = optimize.brentq(lambda x: 1 - np.sqrt(_intensity_exact(x, kappa)[0]) - 0.9, 0.1, length)
     assert exact_length == pytest.approx(np.log(800 / np.pi ** 2) / (2 * np.pi ** 2 * kappa), rel=1e-3)
-    # linear interpolation between planes 0.25 apart plus the profile error: within 0.05 (1 %)
-    assert mixing_length(table) == pytest.approx(exact_length, abs=0.05)
-    assert mixing_length(table, weighting="area") == pytest.approx(exact_length, abs=0.05)
+    # linear interpolation between planes 0.25 apart plus the profile error: within 0.01
+    # (0.2 %; measured 0.0005 to 0.002, short of the exact length)
+    assert mixing_length(table) == pytest.approx(exact_length, abs=0.01)
+    assert mixing_length(table, weighting="area") == pytest.approx(exact_length, abs=0.01)
 
 
 def test_cell_velocity_and_cell_indicator():
