@@ -5,19 +5,22 @@ A plane normal to one axis cuts every simplex of the cells it crosses
 Point fields are interpolated linearly along the cut edges, cell fields are
 constant on the pieces of their cell, so each piece carries the exact field of
 the linear (or piecewise-constant) representation. The piece integrals of c,
-(c - m)^2 and their products with the normal velocity are polynomials of degree
-3 at most and are integrated exactly: a degree-4 triangle rule in 3D, two-point
-Gauss on segments in 2D.
+c^2 and their products with the normal velocity are polynomials of degree 3 at
+most in the barycentric coordinates and are integrated exactly by the simplex
+moment formula (:func:`simplex_moments`); c is shifted by its median first so
+the variance does not suffer from cancellation.
 """
 
 from __future__ import annotations
+
+from math import factorial
 
 import numpy as np
 import pandas as pd
 
 from ..errors import OptionError
 from ..indicator import Indicator
-from ..mesh import _TRI4_POINTS, _TRI4_WEIGHTS, Mesh
+from ..mesh import Mesh
 from ._simplices import cell_extent, split_cells
 
 __all__ = ["cross_sections", "PROFILE_COLUMNS"]
@@ -28,7 +31,6 @@ PROFILE_COLUMNS = ["position", "area", "mean_area_weighted", "mean_flow_weighted
                    "mixing_index_flow", "flow_rate"]
 
 _AXES = {"x": 0, "y": 1, "z": 2}
-_GAUSS2 = (0.5 - 0.5 / np.sqrt(3.0), 0.5 + 0.5 / np.sqrt(3.0))
 
 
 def normalize_axis(mesh: Mesh, axis) -> tuple[int, int]:
@@ -102,34 +104,39 @@ def default_positions(mesh: Mesh, global_axis: int, count: int) -> np.ndarray:
     return lo + (np.arange(count) + 0.5) * (hi - lo) / count
 
 
-def _section_pieces(mesh: Mesh, axis: int, position: float, lower_end: bool, fields,
-                    cells: np.ndarray):
-    """Quadrature weights and field values on the section of ``cells`` by one plane.
+def _section_pieces(mesh: Mesh, axis: int, position: float, lower_end: bool, state: np.ndarray,
+                    cell_fields: list, cells: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    """The section of ``cells`` by one plane, as simplices carrying the fields at their corners.
 
-    Returns ``weights`` (n_q,) in length units (2D) or squared (3D) and
-    ``values`` (n_q, n_fields).
+    Parameters
+    ----------
+    state : ndarray of shape (n_points, dimension + n_point_fields)
+        Coordinates, then the point fields.
+    cell_fields : list of ndarray of shape (n_cells,)
+
+    Returns
+    -------
+    measures : ndarray of shape (n,)
+        Areas of section triangles (3D) or lengths of section segments (2D).
+    values : ndarray of shape (n, dimension, n_fields)
+        Point fields, then cell fields, at the corners of each piece.
     """
-    n_fields = len(fields)
+    dim = mesh.dimension
+    n_fields = state.shape[1] - dim + len(cell_fields)
     if cells.size == 0:
-        return np.empty(0), np.empty((0, n_fields))
-    others = [a for a in range(mesh.dimension) if a != axis]
-    # corner state: coordinates, then every field (cell fields are added per simplex)
-    point_fields = [values for values, location in fields if location == "point"]
-    state = np.column_stack([mesh.coordinates] + point_fields)
+        return np.empty(0), np.empty((0, dim, n_fields))
     S, parent = split_cells(mesh, cells, state)
-    columns, next_point = [S[:, :, others]], mesh.dimension
-    for values, location in fields:
-        if location == "point":
-            columns.append(S[:, :, next_point:next_point + 1])
-            next_point += 1
-        else:
-            columns.append(np.repeat(values[parent][:, None, None], S.shape[1], axis=1))
-    F = np.concatenate(columns, axis=2)
     s = S[:, :, axis] - position
+    below = np.count_nonzero(s <= 0 if lower_end else s < 0, axis=1)
+    crossed = (below > 0) & (below < dim + 1)
+    S, parent, s, below = S[crossed], parent[crossed], s[crossed], below[crossed]
+    others = [a for a in range(dim) if a != axis]
+    columns = [S[:, :, others], S[:, :, dim:]]
+    columns += [np.repeat(values[parent][:, None, None], S.shape[1], axis=1) for values in cell_fields]
+    F = np.concatenate(columns, axis=2)
     order = np.argsort(s, axis=1, kind="stable")
     s = np.take_along_axis(s, order, axis=1)
     F = np.take_along_axis(F, order[:, :, None], axis=1)
-    below = np.count_nonzero(s <= 0 if lower_end else s < 0, axis=1)
 
     def edge(mask, i, j):
         si, sj = s[mask, i], s[mask, j]
@@ -137,38 +144,59 @@ def _section_pieces(mesh: Mesh, axis: int, position: float, lower_end: bool, fie
         return F[mask, i] + t * (F[mask, j] - F[mask, i])
 
     n_plane = len(others)
-    if mesh.dimension == 2:
+    if dim == 2:
         one, two = below == 1, below == 2
-        a = np.concatenate([edge(one, 0, 1), edge(two, 0, 2)])
-        b = np.concatenate([edge(one, 0, 2), edge(two, 1, 2)])
-        length = np.abs(b[:, 0] - a[:, 0])
-        weights = np.concatenate([0.5 * length] * 2)
-        values = np.concatenate([(1 - g) * a[:, n_plane:] + g * b[:, n_plane:] for g in _GAUSS2])
-        return weights, values
+        pieces = np.concatenate([np.stack([edge(one, 0, 1), edge(one, 0, 2)], axis=1),
+                                 np.stack([edge(two, 0, 2), edge(two, 1, 2)], axis=1)])
+        measures = np.abs(pieces[:, 1, 0] - pieces[:, 0, 0])
+        return measures, pieces[:, :, n_plane:]
     one, two, three = below == 1, below == 2, below == 3
     e02, e13 = edge(two, 0, 2), edge(two, 1, 3)
-    triangles = [
+    pieces = np.concatenate([
         np.stack([edge(one, 0, 1), edge(one, 0, 2), edge(one, 0, 3)], axis=1),
         np.stack([edge(three, 0, 3), edge(three, 1, 3), edge(three, 2, 3)], axis=1),
         np.stack([e02, edge(two, 0, 3), e13], axis=1),
         np.stack([e02, e13, edge(two, 1, 2)], axis=1),
-    ]
-    T = np.concatenate(triangles)
-    d1 = T[:, 1, :2] - T[:, 0, :2]
-    d2 = T[:, 2, :2] - T[:, 0, :2]
-    area = 0.5 * np.abs(d1[:, 0] * d2[:, 1] - d1[:, 1] * d2[:, 0])
-    weights = (area[:, None] * _TRI4_WEIGHTS[None, :]).ravel()
-    values = np.einsum("qk,nkf->nqf", _TRI4_POINTS, T[:, :, n_plane:]).reshape(-1, n_fields)
-    return weights, values
+    ])
+    d1 = pieces[:, 1, :2] - pieces[:, 0, :2]
+    d2 = pieces[:, 2, :2] - pieces[:, 0, :2]
+    measures = 0.5 * np.abs(d1[:, 0] * d2[:, 1] - d1[:, 1] * d2[:, 0])
+    return measures, pieces[:, :, n_plane:]
 
 
-def _weighted(weights: np.ndarray, c: np.ndarray) -> tuple[float, float]:
-    """Weighted mean and intensity of segregation (NaN when undefined)."""
-    total = weights.sum()
-    if weights.size == 0 or total == 0:
+def simplex_moments(measures: np.ndarray, f: np.ndarray, g: np.ndarray | None = None,
+                    h: np.ndarray | None = None) -> float:
+    """Exact integral of f (g) (h) over simplices on which f, g, h are linear.
+
+    With k corners (dimension d = k - 1) and barycentric coordinates, int
+    l_i l_j l_k = |S| d! a! b! c! / (d + n)! for a monomial of degree n
+    (multiplicities a, b, c), which gives for corner values (n, k):
+    int f = |S| sum f / k; int f g = |S| (sum fg + sum f sum g) d! / (d + 2)!;
+    int f g h = |S| (sum f sum g sum h + sum fg sum h + sum gh sum f + sum fh sum g
+    + 2 sum fgh) d! / (d + 3)!.
+    """
+    k = f.shape[1]
+    d = k - 1
+    sf = f.sum(axis=1)
+    if g is None:
+        return float(np.dot(measures, sf) / k)
+    sg = g.sum(axis=1)
+    fg = np.einsum("nk,nk->n", f, g)
+    if h is None:
+        return float(np.dot(measures, fg + sf * sg) * factorial(d) / factorial(d + 2))
+    sh = h.sum(axis=1)
+    total = (sf * sg * sh + fg * sh + np.einsum("nk,nk->n", g, h) * sf + np.einsum("nk,nk->n", f, h) * sg
+             + 2 * np.einsum("nk,nk,nk->n", f, g, h))
+    return float(np.dot(measures, total) * factorial(d) / factorial(d + 3))
+
+
+def _statistics(weight_total: float, first: float, second: float, shift: float) -> tuple[float, float]:
+    """Mean and intensity of segregation from int w, int w (c - shift), int w (c - shift)^2."""
+    if not weight_total:
         return np.nan, np.nan
-    mean = float(np.dot(weights, c) / total)
-    variance = float(np.dot(weights, (c - mean) ** 2) / total)
+    offset = first / weight_total
+    mean = shift + offset
+    variance = max(second / weight_total - offset * offset, 0.0)
     spread = mean * (1.0 - mean)
     return mean, (variance / spread if spread > 0 else np.nan)
 
@@ -252,6 +280,15 @@ def cross_sections(mesh: Mesh, c_point_or_indicator, *, axis="x", positions=None
     fields = [(c, c_location)]
     if velocity is not None:
         fields.append(normal_velocity(mesh, velocity, global_axis, velocity_location))
+    # point fields travel with the coordinates through the split; cell fields follow the parent
+    point_fields = [values for values, location in fields if location == "point"]
+    cell_fields = [values for values, location in fields if location == "cell"]
+    state = np.column_stack([mesh.coordinates] + point_fields)
+    order = np.argsort([0 if location == "point" else 1 for _, location in fields], kind="stable")
+    slot = np.empty(len(fields), dtype=int)
+    slot[order] = np.arange(len(fields))  # where each field sits among the piece values
+    finite_c = c[np.isfinite(c)]
+    shift = float(np.median(finite_c)) if finite_c.size else 0.0  # shifts c before squaring
     lo_bound = mesh.bounds[0, global_axis]
     tolerance = 1e-12 * max(float(np.ptp(mesh.bounds[:, global_axis])), 1e-300)
     lo, hi = cell_extent(mesh, plane_axis)
@@ -259,18 +296,22 @@ def cross_sections(mesh: Mesh, c_point_or_indicator, *, axis="x", positions=None
     for position in positions:
         lower_end = bool(position <= lo_bound + tolerance)
         crossed = (lo <= position) & (hi > position) if lower_end else (lo < position) & (hi >= position)
-        weights, values = _section_pieces(mesh, plane_axis, float(position), lower_end, fields,
-                                          np.nonzero(crossed)[0])
-        good = np.all(np.isfinite(values), axis=1)
-        w, v = weights[good], values[good]
-        mean, intensity = _weighted(w, v[:, 0])
-        row = {"position": float(position), "area": float(weights.sum()), "mean_area_weighted": mean,
+        measures, values = _section_pieces(mesh, plane_axis, float(position), lower_end, state,
+                                           cell_fields, np.nonzero(crossed)[0])
+        good = np.all(np.isfinite(values), axis=(1, 2))
+        w, v = measures[good], values[good]
+        cv = v[:, :, slot[0]] - shift
+        total = float(w.sum())
+        mean, intensity = _statistics(total, simplex_moments(w, cv), simplex_moments(w, cv, cv), shift)
+        row = {"position": float(position), "area": float(measures.sum()), "mean_area_weighted": mean,
                "segregation_intensity": intensity}
         if velocity is not None:
-            flow = w * v[:, 1]
-            mean_f, intensity_f = _weighted(flow, v[:, 0])
+            un = v[:, :, slot[1]]
+            flow = simplex_moments(w, un)
+            mean_f, intensity_f = _statistics(flow, simplex_moments(w, un, cv),
+                                              simplex_moments(w, un, cv, cv), shift)
             row.update(mean_flow_weighted=mean_f, segregation_intensity_flow=intensity_f,
-                       flow_rate=float(flow.sum()))
+                       flow_rate=flow)
         rows.append(row)
     table = pd.DataFrame(rows, columns=PROFILE_COLUMNS, dtype=np.float64)
     with np.errstate(invalid="ignore"):
