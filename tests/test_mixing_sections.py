@@ -86,9 +86,9 @@ def test_plane_integrals_match_pyvista(kind, shape, jitter):
         ours = cross_sections(mesh, c, positions=[position], velocity=u).iloc[0]
         assert ours["area"] == pytest.approx(size, rel=1e-10)
         # simplex meshes: the same linear interpolant, so equal to round-off; other cells are split
-        # differently inside (VTK: polygon of the edge points; here: simplices about the centres,
-        # quads along a diagonal), an O(h^2) difference
-        tolerance = 1e-10 if kind in ("tetra", "triangle") else 2e-3
+        # differently inside (VTK: polygon of the edge points; here: a few simplices per cell along
+        # diagonals), an O(h^2) difference: up to 2.1e-3 relative at h = 0.25 here, bound 5e-3
+        tolerance = 1e-10 if kind in ("tetra", "triangle") else 5e-3
         assert ours["flow_rate"] == pytest.approx(ref.point_data["u"][0], rel=tolerance)
         integral_c = ours["mean_area_weighted"] * ours["area"]
         assert integral_c == pytest.approx(ref.point_data["c"][0], rel=tolerance)

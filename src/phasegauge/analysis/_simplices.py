@@ -17,12 +17,18 @@ import numpy as np
 
 from ..mesh import _FACES, Mesh
 
-# local corner indices of the simplices of cells with straight edges and flat faces
+# local corner indices of the simplices of each cell type when its faces are flat
 _SPLIT = {
     "triangle": [(0, 1, 2)],
     "quad": [(0, 1, 2), (0, 2, 3)],
     "tetra": [(0, 1, 2, 3)],
+    "hexahedron": [(0, 1, 2, 6), (0, 2, 3, 6), (0, 3, 7, 6), (0, 7, 4, 6), (0, 4, 5, 6), (0, 5, 1, 6)],
+    "wedge": [(0, 1, 2, 5), (0, 1, 4, 5), (0, 3, 4, 5)],
+    "pyramid": [(0, 1, 2, 4), (0, 2, 3, 4)],
 }
+
+#: a quad face is flat when its corners' volume is below this share of its size cubed
+_FLAT = 1e-10
 
 
 def cell_extent(mesh: Mesh, axis: int) -> tuple[np.ndarray, np.ndarray]:
@@ -38,25 +44,44 @@ def cell_extent(mesh: Mesh, axis: int) -> tuple[np.ndarray, np.ndarray]:
     return lo, hi
 
 
-def _block_simplices(cell_type: str, S: np.ndarray) -> list:
-    """Simplices (each (n, d + 1, q)) of cells whose corner states are S (n, k, q)."""
-    if cell_type == "polygon":
-        return [S[:, [0, i, i + 1]] for i in range(1, S.shape[1] - 1)]
-    if cell_type in _SPLIT:
-        return [S[:, list(local)] for local in _SPLIT[cell_type]]
-    # hexahedra, wedges, pyramids: a tetrahedron from the cell centre to every face triangle;
-    # quad faces are split in four about their centre, so the split conforms between
-    # neighbours even when a quad face is not flat
-    centre = S.mean(axis=1)
-    out = []
+def _flat_faces(cell_type: str, X: np.ndarray) -> np.ndarray:
+    """True for cells (corner coordinates X, (n, k, 3)) whose quad faces are all flat."""
+    flat = np.ones(X.shape[0], dtype=bool)
     for face in _FACES[cell_type]:
-        F = S[:, list(face)]
+        if len(face) == 4:
+            P = X[:, list(face)]
+            e1, e2, e3 = P[:, 1] - P[:, 0], P[:, 2] - P[:, 0], P[:, 3] - P[:, 0]
+            volume = np.abs(np.einsum("nd,nd->n", e1, np.cross(e2, e3)))
+            size = np.einsum("nd,nd->n", e2, e2) ** 1.5
+            flat &= volume <= _FLAT * size
+    return flat
+
+
+def _block_simplices(cell_type: str, S: np.ndarray, dim: int) -> list:
+    """Simplices of cells whose corner states are S (n, k, q), as (simplices, cell rows) pairs."""
+    rows = np.arange(S.shape[0])
+    if cell_type == "polygon":
+        return [(S[:, [0, i, i + 1]], rows) for i in range(1, S.shape[1] - 1)]
+    if cell_type in ("triangle", "quad", "tetra"):
+        return [(S[:, list(local)], rows) for local in _SPLIT[cell_type]]
+    # hexahedra, wedges, pyramids: with flat faces the few simplices of the table; otherwise a
+    # tetrahedron from the cell centre to every face triangle, quad faces split in four about
+    # their centre, so the split conforms between neighbours even where a face is not flat
+    flat = _flat_faces(cell_type, S[:, :, :dim])
+    out = [(S[flat][:, list(local)], rows[flat]) for local in _SPLIT[cell_type]]
+    bent = ~flat
+    if not bent.any():
+        return out
+    B = S[bent]
+    centre = B.mean(axis=1)
+    for face in _FACES[cell_type]:
+        F = B[:, list(face)]
         if len(face) == 3:
-            out.append(np.stack([F[:, 0], F[:, 1], F[:, 2], centre], axis=1))
+            out.append((np.stack([F[:, 0], F[:, 1], F[:, 2], centre], axis=1), rows[bent]))
             continue
         middle = F.mean(axis=1)
         for i in range(4):
-            out.append(np.stack([F[:, i], F[:, (i + 1) % 4], middle, centre], axis=1))
+            out.append((np.stack([F[:, i], F[:, (i + 1) % 4], middle, centre], axis=1), rows[bent]))
     return out
 
 
@@ -82,9 +107,11 @@ def split_cells(mesh: Mesh, cells: np.ndarray, point_state: np.ndarray) -> tuple
     Notes
     -----
     Triangles and tetrahedra stay whole, quads split in two, polygons in a
-    fan; hexahedra (24), wedges (14) and pyramids (8) are split into
-    tetrahedra from their corner mean to each face triangle, quad faces split
-    in four about their corner mean.
+    fan; hexahedra, wedges and pyramids with flat faces into 6, 3 and 2
+    tetrahedra; those with a bent quad face into 24, 14 and 8 tetrahedra
+    from their corner mean to each face triangle, quad faces split in four
+    about their corner mean (so the split conforms across bent faces).
+    Coordinates must be the first ``dimension`` columns of ``point_state``.
     """
     pieces, parents = [], []
     for block, start, stop in zip(mesh.blocks, mesh.block_offsets[:-1], mesh.block_offsets[1:]):
@@ -93,9 +120,9 @@ def split_cells(mesh: Mesh, cells: np.ndarray, point_state: np.ndarray) -> tuple
             continue
         chosen = cells[a:b]
         S = point_state[block.connectivity[chosen - start]]
-        for simplices in _block_simplices(block.cell_type, S):
+        for simplices, rows in _block_simplices(block.cell_type, S, mesh.dimension):
             pieces.append(simplices)
-            parents.append(chosen)
+            parents.append(chosen[rows])
     if not pieces:
         shape = (0, mesh.dimension + 1, point_state.shape[1])
         return np.empty(shape), np.empty(0, dtype=np.int64)
