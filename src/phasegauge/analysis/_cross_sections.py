@@ -138,19 +138,18 @@ def _section_pieces(mesh: Mesh, axis: int, position: float, lower_end: bool, sta
     s = np.take_along_axis(s, order, axis=1)
     F = np.take_along_axis(F, order[:, :, None], axis=1)
 
-    def edge(mask, i, j):
-        si, sj = s[mask, i], s[mask, j]
-        t = (si / (si - sj))[:, None]
-        return F[mask, i] + t * (F[mask, j] - F[mask, i])
+    def edge(rows, i, j):
+        si, sj = s[rows, i], s[rows, j]
+        Fi = F[rows, i]
+        return Fi + (si / (si - sj))[:, None] * (F[rows, j] - Fi)
 
     n_plane = len(others)
+    one, two, three = (np.nonzero(below == k)[0] for k in (1, 2, 3))
     if dim == 2:
-        one, two = below == 1, below == 2
         pieces = np.concatenate([np.stack([edge(one, 0, 1), edge(one, 0, 2)], axis=1),
                                  np.stack([edge(two, 0, 2), edge(two, 1, 2)], axis=1)])
         measures = np.abs(pieces[:, 1, 0] - pieces[:, 0, 0])
         return measures, pieces[:, :, n_plane:]
-    one, two, three = below == 1, below == 2, below == 3
     e02, e13 = edge(two, 0, 2), edge(two, 1, 3)
     pieces = np.concatenate([
         np.stack([edge(one, 0, 1), edge(one, 0, 2), edge(one, 0, 3)], axis=1),
@@ -181,12 +180,12 @@ def simplex_moments(measures: np.ndarray, f: np.ndarray, g: np.ndarray | None = 
     if g is None:
         return float(np.dot(measures, sf) / k)
     sg = g.sum(axis=1)
-    fg = np.einsum("nk,nk->n", f, g)
+    fg = f * g
     if h is None:
-        return float(np.dot(measures, fg + sf * sg) * factorial(d) / factorial(d + 2))
+        return float(np.dot(measures, fg.sum(axis=1) + sf * sg) * factorial(d) / factorial(d + 2))
     sh = h.sum(axis=1)
-    total = (sf * sg * sh + fg * sh + np.einsum("nk,nk->n", g, h) * sf + np.einsum("nk,nk->n", f, h) * sg
-             + 2 * np.einsum("nk,nk,nk->n", f, g, h))
+    total = (sf * sg * sh + fg.sum(axis=1) * sh + (g * h).sum(axis=1) * sf + (f * h).sum(axis=1) * sg
+             + 2 * (fg * h).sum(axis=1))
     return float(np.dot(measures, total) * factorial(d) / factorial(d + 3))
 
 
@@ -300,13 +299,13 @@ def cross_sections(mesh: Mesh, c_point_or_indicator, *, axis="x", positions=None
                                            cell_fields, np.nonzero(crossed)[0])
         good = np.all(np.isfinite(values), axis=(1, 2))
         w, v = measures[good], values[good]
-        cv = v[:, :, slot[0]] - shift
+        cv = np.ascontiguousarray(v[:, :, slot[0]]) - shift
         total = float(w.sum())
         mean, intensity = _statistics(total, simplex_moments(w, cv), simplex_moments(w, cv, cv), shift)
         row = {"position": float(position), "area": float(measures.sum()), "mean_area_weighted": mean,
                "segregation_intensity": intensity}
         if velocity is not None:
-            un = v[:, :, slot[1]]
+            un = np.ascontiguousarray(v[:, :, slot[1]])
             flow = simplex_moments(w, un)
             mean_f, intensity_f = _statistics(flow, simplex_moments(w, un, cv),
                                               simplex_moments(w, un, cv, cv), shift)

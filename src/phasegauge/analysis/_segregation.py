@@ -194,7 +194,7 @@ def segregation_scale(mesh: Mesh, c_cell, *, resolution: int | None = None) -> f
     -----
     c is resampled on a regular grid over the bounding box: directly on a
     uniform rectilinear mesh, else each sample takes the value of the nearest
-    cell centroid; samples farther than one cell size from every centroid
+    cell centroid; samples farther than 1.5 cell sizes from every centroid
     (outside a non-box domain) are left out. R(r) is the FFT autocorrelation of
     the masked fluctuation divided by the overlap count (an unbiased estimate),
     averaged in shells one sample wide. Integrating up to the first zero of R
