@@ -257,7 +257,7 @@ def cross_sections(mesh: Mesh, c_point_or_indicator, *, axis="x", positions=None
     from the bilinear/trilinear one by O(h^2) inside a cell. A plane through mesh points takes the faces on its
     lower side (at the lowest mesh coordinate, those on its upper side), so
     every face counts once. Parts where c (or the velocity) is NaN are left
-    out of the statistics but not of ``area``. Flow weights are signed: with
+    out of the statistics and ``flow_rate`` but not of ``area``. Flow weights are signed: with
     back-flow through a plane the flow-weighted figures mix forward and
     backward flow. Values of c are not clipped, so overshoots can make I > 1.
 
