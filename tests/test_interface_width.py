@@ -10,7 +10,7 @@ from phasegauge.errors import OptionError
 from phasegauge.indicator import make_indicator
 from phasegauge.meshgen import grid_mesh
 from phasegauge.analysis.interface import (METRIC_KEYS, PROFILE_COLUMNS, diffusion_audit,
-                                           find_interface, interface_boundedness,
+                                           find_interface,
                                            interface_metrics, interface_profile_table)
 
 # logistic profile c = 1/2 (1 + tanh(n / (2 eps))) (Olsson & Kreiss 2005): band volume per area
@@ -205,14 +205,16 @@ def test_indicator_shape_error():
 
 
 def test_boundedness():
+    from phasegauge.analysis.conservation import boundedness
+
     # c = 1.2 on the left half, -0.1 on the right: overshoot 0.2 * 0.5 + 0.1 * 0.5 (exact)
     mesh = grid_mesh((10, 10), kind="triangle")
     c = np.where(mesh.cell_centroids[:, 0] < 0.5, 1.2, -0.1)
     ind = make_indicator(mesh, Fields(cell_data={"c": c}), "c", warn=False)
-    r = interface_boundedness(mesh, ind)
+    r = boundedness(mesh, ind)
     assert r["c_min"] == pytest.approx(-0.1) and r["c_max"] == pytest.approx(1.2)
     assert r["overshoot_volume"] == pytest.approx(0.15)
-    assert np.isnan(interface_boundedness(mesh, np.full(mesh.n_cells, np.nan))["c_min"])
+    assert np.isnan(boundedness(mesh, np.full(mesh.n_cells, np.nan))["c_min"])
 
 
 # ------------------------------------------------------------------ diffusion audit

@@ -546,39 +546,3 @@ def _metrics(work: _Work, max_samples: int):
         "under_resolved_interface_fraction": under,
     }
     return metrics, table
-
-
-def interface_boundedness(mesh: Mesh, indicator) -> dict:
-    """How far c leaves [0, 1]: extremes and the overshoot volume.
-
-    Parameters
-    ----------
-    mesh : Mesh
-    indicator : Indicator or ndarray
-        As for :func:`interface_metrics`.
-
-    Returns
-    -------
-    dict
-        ``c_min``, ``c_max`` : float, dimensionless; extremes of the finite
-        values where the data lives (points or cells).
-        ``overshoot_volume`` : float, area (2D) or volume (3D);
-        int max(0, c - 1, -c) dV over the cells (cell values times cell
-        measures; NaN cells left out). All NaN when no value is finite.
-
-    Notes
-    -----
-    A bounded scheme keeps 0 <= c <= 1; an overshoot volume that grows over a
-    run points at dispersive errors near the interface (common practice).
-    """
-    cell, point = _indicator_values(mesh, indicator)
-    location = getattr(indicator, "location", None)
-    data = point if location == "point" or (location is None and np.shape(indicator) == (mesh.n_points,)) \
-        else cell
-    finite = data[np.isfinite(data)]
-    if finite.size == 0:
-        return {"c_min": float("nan"), "c_max": float("nan"), "overshoot_volume": float("nan")}
-    ok = np.isfinite(cell)
-    excess = np.maximum(np.maximum(cell[ok] - 1.0, -cell[ok]), 0.0)
-    return {"c_min": float(finite.min()), "c_max": float(finite.max()),
-            "overshoot_volume": float((excess * mesh.cell_measures[ok]).sum())}

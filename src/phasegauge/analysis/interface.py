@@ -8,7 +8,6 @@ Pure functions of a mesh and the phase indicator c:
   estimators (band volume, threshold-free, second moment, local profile fits),
   width in cells and the under-resolved share of the interface;
 * :func:`interface_profile_table`: the local profile fits, one row per sample;
-* :func:`interface_boundedness`: c_min, c_max and the overshoot volume;
 * :func:`diffusion_audit`: an effective (numerical) diffusivity from the
   history of the interface variance.
 """
@@ -16,8 +15,8 @@ Pure functions of a mesh and the phase indicator c:
 from ._contour import Contour, find_interface, split_cells
 from ._diffusion_audit import diffusion_audit
 from ._interface_width import (METRIC_KEYS, PROFILE_COLUMNS, WIDTH_PER_EPS, cell_gradient,
-                               interface_boundedness, interface_metrics, interface_profile_table)
+                               interface_metrics, interface_profile_table)
 
 __all__ = ["Contour", "find_interface", "split_cells", "interface_metrics",
-           "interface_profile_table", "interface_boundedness", "cell_gradient", "diffusion_audit",
+           "interface_profile_table", "cell_gradient", "diffusion_audit",
            "METRIC_KEYS", "PROFILE_COLUMNS", "WIDTH_PER_EPS"]
