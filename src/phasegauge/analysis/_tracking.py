@@ -282,8 +282,8 @@ class DropletTracker:
             after = side_c.groupby("group").agg(after=("track", _track_string), volume_after=("volume", "sum"))
             table = pd.DataFrame({"group": events, "kind": kind[events]}).set_index("group")
             table = table.join(before).join(after)
-            table["before"] = table["before"].fillna("")
-            table["after"] = table["after"].fillna("")
+            for column in ("before", "after"):  # a side with no droplets joins as NaN
+                table[column] = table[column].astype(object).where(table[column].notna(), "")
             table["volume_before"] = table["volume_before"].fillna(0.0)
             table["volume_after"] = table["volume_after"].fillna(0.0)
             with np.errstate(invalid="ignore", divide="ignore"):
