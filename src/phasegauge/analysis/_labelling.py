@@ -15,10 +15,11 @@ The algorithm, in vectorised steps:
    droplet that wraps the whole period: ``spanning``.
 3. *Band sharing.* Cells with ``band_floor < c <= level`` (the diffuse band
    below the level) go to the droplet nearest to them along the face graph
-   (plus periodic pairs): one multi-source Dijkstra search over the band
-   cells, edge length the distance between cell centroids. Band cells whose
-   band region touches no droplet (a dissolving remnant below the level) stay
-   unassigned.
+   (plus periodic pairs): rings of cells grown breadth first from the
+   droplet cores, each new cell taking the droplet of its neighbour with the
+   highest c (a wide plateau is finished by a multi-source Dijkstra search
+   along centroid distances). Band cells whose band region touches no
+   droplet (a dissolving remnant below the level) stay unassigned.
 4. *Table.* Integrals with weights ``c dV`` over each droplet's cells,
    threshold cells and band share, by ``numpy.bincount``.
 """
@@ -284,39 +285,103 @@ def _join_periodic(n_pieces: int, piece: np.ndarray, links):
     return n_drop, droplet_of_piece, offset, spanning
 
 
+def _grid_order(mesh: Mesh) -> np.ndarray:
+    """Mesh cell at each position of a regular grid's cell array (C order), cached."""
+    store = _cache(mesh)
+    if "grid_order" not in store:
+        grid = mesh.regular_grid
+        order = np.empty(mesh.n_cells, dtype=np.int64)
+        order[grid.cell_index] = np.arange(mesh.n_cells)
+        store["grid_order"] = order.reshape(grid.cell_shape)
+    return store["grid_order"]
+
+
+def _band_face_pairs(mesh: Mesh, member: np.ndarray, band: np.ndarray) -> np.ndarray:
+    """Face pairs of member cells with at least one band cell; from the cell array on regular grids."""
+    grid = mesh.regular_grid
+    if grid is None:
+        p = mesh.face_pairs
+        keep = member[p[:, 0]] & member[p[:, 1]] & (band[p[:, 0]] | band[p[:, 1]])
+        return p[keep]
+    order = _grid_order(mesh)
+    m = member[order]
+    b = band[order]
+    out = []
+    for axis in range(order.ndim):
+        lo = tuple(slice(None, -1) if d == axis else slice(None) for d in range(order.ndim))
+        hi = tuple(slice(1, None) if d == axis else slice(None) for d in range(order.ndim))
+        ok = m[lo] & m[hi] & (b[lo] | b[hi])
+        out.append(np.stack([order[lo][ok], order[hi][ok]], axis=1))
+    return np.concatenate(out)
+
+
 def _share_band(mesh: Mesh, c: np.ndarray, labels: np.ndarray, extra_pairs: np.ndarray,
-                band_floor: float):
-    """Labels with diffuse-band cells given to the nearest droplet; and each band cell's source cell."""
+                band_floor: float, rings: int = 32):
+    """Labels with diffuse-band cells given to the nearest droplet; and each band cell's source cell.
+
+    Ring by ring (breadth first from the droplet cores over band cells), each newly reached cell
+    takes the droplet of its neighbour with the highest c; after ``rings`` rings (a wide plateau)
+    the rest is finished by a multi-source Dijkstra search along centroid distances.
+    """
     shared = labels.copy()
     source_cell = np.arange(mesh.n_cells)
     band = (c > band_floor) & (labels < 0)
     if not band.any() or not (labels >= 0).any():
         return shared, source_cell
-    face = mesh.face_pairs
-    pairs = np.concatenate([face, extra_pairs]) if extra_pairs.size else face
     member = band | (labels >= 0)
-    keep = member[pairs[:, 0]] & member[pairs[:, 1]] & (band[pairs[:, 0]] | band[pairs[:, 1]])
-    pairs = pairs[keep]
+    pairs = _band_face_pairs(mesh, member, band)
+    if extra_pairs.size:
+        keep = member[extra_pairs[:, 0]] & member[extra_pairs[:, 1]]
+        pairs = np.concatenate([pairs, extra_pairs[keep & (band[extra_pairs[:, 0]] | band[extra_pairs[:, 1]])]])
     if pairs.size == 0:
         return shared, source_cell
+    tail = np.concatenate([pairs[:, 0], pairs[:, 1]])  # directed: tail -> head
+    head = np.concatenate([pairs[:, 1], pairs[:, 0]])
+    open_ = shared[head] < 0
+    tail, head = tail[open_], head[open_]
+    # sorted once by head, highest tail c first; masks keep the order, so the first
+    # entry per head in any ring is its highest-c neighbour already assigned
+    order = np.argsort(head + 0.999 * (1.0 - np.clip(c[tail], 0.0, 1.0)))  # one float key: faster than lexsort
+    tail, head = tail[order], head[order]
+    for _ in range(rings):
+        grow = shared[tail] >= 0
+        if not grow.any():
+            break
+        src, dst = tail[grow], head[grow]
+        first = np.concatenate([[True], dst[1:] != dst[:-1]])
+        dst, src = dst[first], src[first]
+        shared[dst] = shared[src]
+        source_cell[dst] = source_cell[src]
+        open_ = shared[head] < 0
+        tail, head = tail[open_], head[open_]
+    else:
+        if tail.size:
+            _finish_band_by_distance(mesh, pairs, band, shared, source_cell, extra_pairs)
+    return shared, source_cell
+
+
+def _finish_band_by_distance(mesh, pairs, band, shared, source_cell, extra_pairs):
+    """Give the band cells still unassigned to the nearest assigned cell (multi-source Dijkstra), in place."""
     length = _face_lengths(mesh, pairs)
-    if extra_pairs.size:  # across a periodic boundary the centroid distance is meaningless
+    if extra_pairs.size:  # across a periodic boundary the centroid distance is meaningless: use h
+        key = np.sort(pairs, axis=1) @ np.array([mesh.n_cells, 1])
+        across = np.isin(key, np.sort(extra_pairs, axis=1) @ np.array([mesh.n_cells, 1]))
         h = mesh.cell_sizes
-        n_face = int(keep[: face.shape[0]].sum())
-        across = pairs[n_face:]
-        length[n_face:] = 0.5 * (h[across[:, 0]] + h[across[:, 1]])
+        length[across] = 0.5 * (h[pairs[across, 0]] + h[pairs[across, 1]])
     length = np.maximum(length, 1e-300)
-    nodes, local = np.unique(pairs, return_inverse=True)
-    local = local.reshape(pairs.shape)
+    used = np.zeros(mesh.n_cells, dtype=bool)
+    used[pairs.ravel()] = True
+    nodes = np.flatnonzero(used)
+    local = (np.cumsum(used) - 1)[pairs]
     graph = sparse.coo_matrix((length, (local[:, 0], local[:, 1])), shape=(nodes.size, nodes.size)).tocsr()
-    sources = np.flatnonzero(labels[nodes] >= 0)
+    sources = np.flatnonzero(shared[nodes] >= 0)
     dist, _, origin = csgraph.dijkstra(graph, directed=False, indices=sources, min_only=True,
                                        return_predecessors=True)
-    reached = np.isfinite(dist) & (origin >= 0) & band[nodes]
+    reached = np.isfinite(dist) & (origin >= 0) & (shared[nodes] < 0)
     cells = nodes[reached]
-    source_cell[cells] = nodes[origin[reached]]
-    shared[cells] = labels[source_cell[cells]]
-    return shared, source_cell
+    start = nodes[origin[reached]]
+    shared[cells] = shared[start]
+    source_cell[cells] = source_cell[start]
 
 
 def _group_extrema(groups: np.ndarray, lo: np.ndarray, hi: np.ndarray, n: int):
@@ -405,9 +470,12 @@ def label_droplets(mesh: Mesh, c_cell, *, level: float = 0.5, connectivity: str 
     -----
     Band sharing: every cell with ``band_floor < c <= level`` goes to the
     droplet nearest to it along the cell graph (face pairs and periodic
-    pairs; path length the sum of distances between cell centroids), found by
-    one multi-source Dijkstra search started from all droplet cells. Between
-    two droplets the band is thus split at the middle. Band cells in a band
+    pairs), counted in rings of cells grown breadth first from all droplet
+    cores at once; a cell reached from two droplets in the same ring takes
+    the droplet of its neighbour with the higher c. Between two droplets the
+    band is thus split at the middle. After 32 rings (a wide plateau of
+    band values) the remaining cells go to the nearest assigned cell along
+    centroid distances (multi-source Dijkstra). Band cells in a band
     region that touches no droplet are left out of every droplet. The contour
     elements are assigned through the same shared labels, so a segment lying
     in a band cell counts for the droplet that cell was given to. Point
@@ -500,10 +568,10 @@ def label_droplets(mesh: Mesh, c_cell, *, level: float = 0.5, connectivity: str 
     shared, source_cell = _share_band(mesh, c0, labels, extra, band_floor)
 
     # unwrapped coordinates: core cells by their piece's shift, band cells next to their source cell
-    X = mesh.cell_centroids.copy()
+    X = mesh.cell_centroids
     box_lo, box_hi = _corner_boxes(mesh)
-    box_lo, box_hi = box_lo.copy(), box_hi.copy()
     if axes:
+        X, box_lo, box_hi = X.copy(), box_lo.copy(), box_hi.copy()
         shift = np.zeros((mesh.n_cells, dim))
         core = piece >= 0
         for k, ax in enumerate(axes):
