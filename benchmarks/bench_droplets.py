@@ -5,7 +5,7 @@ Run from the worktree root:  PYTHONPATH=src /work/venv/bin/python benchmarks/ben
 Both sides label the same step in the same process. phasegauge's numbers are the whole
 ``label_droplets`` call (labels, band sharing, the full table); pyvista's are ``threshold`` +
 ``connectivity`` only (labels, no table), with the conversion to a pyvista grid left out. Mesh-only
-work that a series pays once (face pairs, regular-grid detection) is timed apart. Tracking is timed on
+work that a series pays once (face pairs, regular-grid detection) is in the first call, timed apart. Tracking is timed on
 a second step moved by two cells, beside the labelling.
 """
 
@@ -18,17 +18,19 @@ import numpy as np
 
 
 def _field(mesh, seed=0, n_drops=400, shift=0.0):
+    """Logistic droplets of radius 2.5 to 8 cells, interface eps = 0.3 cell."""
     rng = np.random.default_rng(seed)
     X = mesh.cell_centroids
     dim = mesh.dimension
+    h = float(np.median(mesh.cell_sizes)) if mesh.regular_grid is not None else mesh.total_measure ** (1 / dim) / 100
     centres = rng.random((n_drops, dim))
     centres[:, 0] += shift
-    radius = rng.uniform(0.01, 0.04, n_drops)
+    radius = rng.uniform(2.5, 8.0, n_drops) * h
     from scipy.spatial import cKDTree
 
     dist, idx = cKDTree(centres).query(X, k=4)
     signed = np.min(dist - radius[idx], axis=1)
-    return 0.5 * (1 - np.tanh(signed / (2 * 0.003)))
+    return 0.5 * (1 - np.tanh(signed / (2 * 0.3 * h)))
 
 
 def _best(fn, repeat=3):
@@ -57,10 +59,10 @@ def main():
     cases = [("hexahedron grid (regular path)", grid_mesh((side,) * 3)),
              ("tetra mesh (graph path)", grid_mesh((int(round((args.cells / 6) ** (1 / 3))),) * 3, kind="tetra"))]
     for name, mesh in cases:
-        t = time.perf_counter()
-        _ = mesh.regular_grid, mesh.face_pairs, mesh.cell_measures, mesh.cell_centroids
-        mesh_once = time.perf_counter() - t
         c = _field(mesh)
+        t = time.perf_counter()
+        label_droplets(mesh, c)  # first call: the mesh caches (grid layout or face pairs, measures) fill
+        first_call = time.perf_counter() - t
         ours, result = _best(lambda: label_droplets(mesh, c), args.repeat)
         grid = pv.from_meshio(to_meshio(mesh, cell_data={"c": c}))
 
@@ -82,7 +84,7 @@ def main():
 
         tracking, (_, events) = _best(track, args.repeat)
         print(f"{name}: {mesh.n_cells} cells")
-        print(f"  mesh-only work, once per series      {mesh_once:8.3f} s")
+        print(f"  first call, mesh caches cold (once)  {first_call:8.3f} s")
         print(f"  label_droplets (face, full table)    {ours:8.3f} s   droplets {result.count}")
         print(f"  pyvista threshold + connectivity     {theirs:8.3f} s   regions {n_theirs} "
               f"(point adjacency; ours with point adjacency: {point})")

@@ -253,3 +253,18 @@ def test_errors_name_the_problem():
         tracker.add(4, 1.0, mesh, result.labels)
     with pytest.raises(OptionError, match=r"labels must have shape \(100,\)"):
         tracker.add(4, 1.0, mesh, result.labels[:5], result.table)
+
+
+def test_moved_points_wrap_around_periodic_axis():
+    """A small droplet jumping 8 cells per step through the periodic x boundary, with its velocity known
+    and the gate off: the moved cells wrap around and overlap it on the other side (one track)."""
+    mesh = grid_mesh((N, N // 2), bounds=[(0, 1), (0, 0.5)])
+    X = mesh.cell_centroids
+    shapes = []
+    for k in range(5):
+        d = X - np.array([(0.6 + 0.5 * H + 8 * k * H) % 1.0, 0.25 + 0.5 * H])
+        d[:, 0] = (d[:, 0] + 0.5) % 1.0 - 0.5
+        shapes.append(np.linalg.norm(d, axis=1) < 2.5 * H)
+    u = [np.tile([8 * H, 0.0], (mesh.n_cells, 1)) for _ in range(5)]
+    droplets, events = track_droplets(series(mesh, shapes, velocity=u, periodic="x"), gate=0.0, periodic="x")
+    assert len(events) == 0 and droplets["track"].unique().tolist() == [0]

@@ -184,8 +184,18 @@ def _face_lengths(mesh: Mesh, pairs: np.ndarray) -> np.ndarray:
 
 
 # --------------------------------------------------------------------------- labelling steps
-def _pieces(mesh: Mesh, inside: np.ndarray, connectivity: str) -> tuple[int, np.ndarray]:
-    """Connected pieces of the ``inside`` cells without periodic joins: (count, piece per cell)."""
+def _near_face_pairs(mesh: Mesh, near: np.ndarray) -> np.ndarray | None:
+    """Face pairs with both cells ``near`` (c above the band floor); None on regular grids (not needed)."""
+    if mesh.regular_grid is not None:
+        return None
+    p = mesh.face_pairs
+    return p[near[p[:, 0]] & near[p[:, 1]]]
+
+
+def _pieces(mesh: Mesh, inside: np.ndarray, connectivity: str, near_pairs=None) -> tuple[int, np.ndarray]:
+    """Connected pieces of the ``inside`` cells without periodic joins: (count, piece per cell).
+
+    ``near_pairs``: face pairs already narrowed to a superset of the inside cells (optional)."""
     grid = mesh.regular_grid
     dim = mesh.dimension
     if grid is not None:
@@ -198,7 +208,7 @@ def _pieces(mesh: Mesh, inside: np.ndarray, connectivity: str) -> tuple[int, np.
     position = np.full(mesh.n_cells, -1, dtype=np.int64)
     position[cells] = np.arange(cells.size)
     if connectivity == "face":
-        p = mesh.face_pairs
+        p = mesh.face_pairs if near_pairs is None else near_pairs
         keep = inside[p[:, 0]] & inside[p[:, 1]]
         i, j = position[p[keep, 0]], position[p[keep, 1]]
         graph = sparse.coo_matrix((np.ones(i.size, dtype=np.int8), (i, j)), shape=(cells.size, cells.size))
@@ -296,11 +306,11 @@ def _grid_order(mesh: Mesh) -> np.ndarray:
     return store["grid_order"]
 
 
-def _band_face_pairs(mesh: Mesh, member: np.ndarray, band: np.ndarray) -> np.ndarray:
+def _band_face_pairs(mesh: Mesh, member: np.ndarray, band: np.ndarray, near_pairs=None) -> np.ndarray:
     """Face pairs of member cells with at least one band cell; from the cell array on regular grids."""
     grid = mesh.regular_grid
     if grid is None:
-        p = mesh.face_pairs
+        p = mesh.face_pairs if near_pairs is None else near_pairs
         keep = member[p[:, 0]] & member[p[:, 1]] & (band[p[:, 0]] | band[p[:, 1]])
         return p[keep]
     order = _grid_order(mesh)
@@ -316,7 +326,7 @@ def _band_face_pairs(mesh: Mesh, member: np.ndarray, band: np.ndarray) -> np.nda
 
 
 def _share_band(mesh: Mesh, c: np.ndarray, labels: np.ndarray, extra_pairs: np.ndarray,
-                band_floor: float, rings: int = 32):
+                band_floor: float, rings: int = 32, near_pairs=None):
     """Labels with diffuse-band cells given to the nearest droplet; and each band cell's source cell.
 
     Ring by ring (breadth first from the droplet cores over band cells), each newly reached cell
@@ -329,7 +339,7 @@ def _share_band(mesh: Mesh, c: np.ndarray, labels: np.ndarray, extra_pairs: np.n
     if not band.any() or not (labels >= 0).any():
         return shared, source_cell
     member = band | (labels >= 0)
-    pairs = _band_face_pairs(mesh, member, band)
+    pairs = _band_face_pairs(mesh, member, band, near_pairs)
     if extra_pairs.size:
         keep = member[extra_pairs[:, 0]] & member[extra_pairs[:, 1]]
         pairs = np.concatenate([pairs, extra_pairs[keep & (band[extra_pairs[:, 0]] | band[extra_pairs[:, 1]])]])
@@ -546,7 +556,8 @@ def label_droplets(mesh: Mesh, c_cell, *, level: float = 0.5, connectivity: str 
     weights = c0 * dV
     inside = c0 > level
 
-    n_pieces, piece = _pieces(mesh, inside, connectivity)
+    near_pairs = _near_face_pairs(mesh, c0 > band_floor)  # one pass over the face pairs for both uses
+    n_pieces, piece = _pieces(mesh, inside, connectivity, near_pairs)
     links = [_periodic_pairs(mesh, ax) for ax in axes]  # (pairs, low end, period) per axis
     n_drop, droplet_of_piece, offset, spanning = _join_periodic(n_pieces, piece, links)
 
@@ -565,7 +576,7 @@ def label_droplets(mesh: Mesh, c_cell, *, level: float = 0.5, connectivity: str 
     spanning[rank] = spanning_raw
 
     extra = np.concatenate([p for p, _, _ in links]) if links else np.empty((0, 2), np.int64)
-    shared, source_cell = _share_band(mesh, c0, labels, extra, band_floor)
+    shared, source_cell = _share_band(mesh, c0, labels, extra, band_floor, near_pairs=near_pairs)
 
     # unwrapped coordinates: core cells by their piece's shift, band cells next to their source cell
     X = mesh.cell_centroids

@@ -166,8 +166,7 @@ class DropletTracker:
         diameter = (table["equivalent_diameter"].to_numpy(dtype=float) if "equivalent_diameter" in table
                     else np.full(n_drop, np.nan))
         core = np.flatnonzero(labels >= 0)
-        used = mesh.coordinates[mesh.used_points]
-        box = (used.min(axis=0), used.max(axis=0))
+        box = (mesh.bounds[0, plane], mesh.bounds[1, plane])
         current = {"step": step, "time": float(time), "mesh": mesh, "cells": core,
                    "labels": labels[core].astype(np.int64), "weights": weights[core],
                    "core_volume": np.bincount(labels[core], weights=weights[core], minlength=n_drop),
