@@ -1,0 +1,8 @@
+"""Droplets: labelling of the dispersed phase on any mesh and the per-droplet table.
+
+See :func:`label_droplets`; the algorithm lives in ``analysis/_labelling.py``.
+"""
+
+from ._labelling import TABLE_COLUMNS, DropletLabels, label_droplets
+
+__all__ = ["label_droplets", "DropletLabels", "TABLE_COLUMNS"]
