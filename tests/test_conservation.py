@@ -175,3 +175,18 @@ def test_boundary_flux_with_cell_data_and_errors():
         open_boundary_flux(mesh, np.zeros(mesh.n_cells))
     with pytest.raises(OptionError, match="tolerance must be a number"):
         open_boundary_flux(mesh, velocity, tolerance=-1)
+
+
+def test_wall_with_round_off_velocity_is_not_open():
+    # regression: a closed box whose wall velocity is zero to round-off was reported open,
+    # because the threshold was relative to the largest speed on the boundary itself
+    from phasegauge.analysis.conservation import open_boundary_flux
+    from phasegauge.meshgen import grid_mesh as _grid
+
+    mesh = _grid((8, 8))
+    x, y = mesh.points[:, 0], mesh.points[:, 1]
+    # reversed-vortex velocity (LeVeque 1996): tangential and zero on the walls of the unit square
+    u = np.stack([np.sin(np.pi * x) ** 2 * np.sin(2 * np.pi * y), -np.sin(np.pi * y) ** 2 * np.sin(2 * np.pi * x),
+                  np.zeros_like(x)], axis=1)
+    out = open_boundary_flux(mesh, u, velocity_location="point")
+    assert out["open_boundary"] is False and out["open_boundary_area"] == 0.0

@@ -39,6 +39,11 @@ ANALYSES = ("interface", "droplets", "mixing", "conservation")
 
 _AXES = {"x": 0, "y": 1, "z": 2}
 
+#: the leading columns of steps.csv, in order (more follow; see the README)
+STEP_COLUMNS = ("step", "time", "phase_volume", "phase_volume_drift", "phase_volume_drift_abs",
+                "interface_size", "interface_width", "interface_width_cells", "droplet_count",
+                "segregation_intensity", "mixing_index", "c_min", "c_max", "overshoot_volume")
+
 
 @dataclass(frozen=True)
 class MeasureOptions:
@@ -171,6 +176,7 @@ class StepResult:
     droplets: object = None  # DataFrame or None
     label_cells: np.ndarray | None = None
     label_values: np.ndarray | None = None
+    label_weights: np.ndarray | None = None
     profile: object = None  # DataFrame or None
     contour: object = None  # Contour of the step (kept for snapshots)
     mesh_signature: str = ""
@@ -180,11 +186,14 @@ class StepResult:
     file_sha256: str = ""
     reused: bool = False
 
-    def labels(self, n_cells: int) -> np.ndarray:
+    def labels(self, n_cells: int) -> tuple[np.ndarray, np.ndarray]:
+        """Droplet label of every cell (-1: none) and the c dV weights of the labelled cells."""
         out = np.full(n_cells, -1, dtype=np.int32)
+        weights = np.zeros(n_cells)
         if self.label_cells is not None:
             out[self.label_cells] = self.label_values
-        return out
+            weights[self.label_cells] = self.label_weights
+        return out, weights
 
 
 @dataclass
@@ -218,6 +227,7 @@ class MeasureResult:
     skipped: list
     options: MeasureOptions
     results: list = field(default_factory=list, repr=False)
+    mesh: object = field(default=None, repr=False)  # mesh of the last step (for drawing)
 
 
 # ------------------------------------------------------------------ per step
@@ -347,6 +357,10 @@ def analyse_step(step, options: MeasureOptions, *, contour_dir: str | None = Non
     if "conservation" in options.analyses:
         m.update(conservation.conservation_metrics(mesh, ind, densities=options.densities))
         m.update(conservation.boundedness(mesh, ind))
+        if u_point is not None:
+            flux = conservation.open_boundary_flux(mesh, u_point, ind, velocity_location="point")
+            m.update({k: v for k, v in flux.items() if k != "open_boundary"})
+            m["open_boundary"] = bool(flux["open_boundary"])
     contour = None
     if "interface" in options.analyses or "droplets" in options.analyses:
         contour = interface.find_interface(mesh, ind.point, level=options.level)
@@ -363,11 +377,12 @@ def analyse_step(step, options: MeasureOptions, *, contour_dir: str | None = Non
             mesh, ind.cell, level=options.level, connectivity=options.connectivity, periodic=axes,
             velocity=u_cell, interface_cells=contour.cells, interface_sizes=contour.element_sizes)
         table = found.table
-        m["droplet_count"] = int(len(table))
+        m["droplet_count"] = int(found.count)
         m["under_resolved_droplets"] = int(table["under_resolved"].sum()) if len(table) else 0
         labelled = np.nonzero(found.labels >= 0)[0]
         result.label_cells = labelled.astype(np.int64)
         result.label_values = found.labels[labelled].astype(np.int32)
+        result.label_weights = np.asarray(found.weights)[labelled]
         result.droplets = table
     if "mixing" in options.analyses:
         m.update(mixing.mixing_metrics(mesh, ind.cell, box=options.box))
@@ -566,6 +581,8 @@ def assemble(series, results: list, options: MeasureOptions) -> MeasureResult:
     steps = pd.DataFrame([r.metrics for r in done])
     if "phase_volume" in steps:
         steps = conservation.drift_columns(steps)
+    first = [c for c in STEP_COLUMNS if c in steps]
+    steps = steps[first + [c for c in steps.columns if c not in first]]
     droplets = pd.DataFrame()
     events = pd.DataFrame(columns=["time", "step", "kind", "before", "after", "volume_before",
                                    "volume_after", "closure_error"])
@@ -580,22 +597,23 @@ def assemble(series, results: list, options: MeasureOptions) -> MeasureResult:
         audit = diffusion_audit(steps["time"].to_numpy(), steps["interface_variance"].to_numpy(),
                                 physical_diffusivity=options.diffusivity)
     flags = _flags(steps, droplets, audit, options, skipped)
+    mesh = series.read_mesh(done[-1].index) if any(r.contour is not None for r in done) else None
     return MeasureResult(steps=steps, droplets=droplets, events=events, profiles=profiles, audit=audit,
-                         flags=flags, skipped=skipped, options=options, results=results)
+                         flags=flags, skipped=skipped, options=options, results=results, mesh=mesh)
 
 
 def _track(series, done, options):
     from .analysis.tracking import DropletTracker
 
-    tracker = DropletTracker(ignore_remerge_within=options.ignore_remerge_within)
+    tracker = DropletTracker(ignore_remerge_within=options.ignore_remerge_within, periodic=options.periodic)
     meshes = {}
     for r in done:
         mesh = meshes.get(r.mesh_signature)
         if mesh is None:
             mesh = series.read(r.index).mesh
             meshes = {r.mesh_signature: mesh}
-        tracker.add(r.index, r.time, mesh, r.labels(mesh.n_cells), r.droplets,
-                    velocity_known=options.velocity is not None)
+        labels, weights = r.labels(mesh.n_cells)
+        tracker.add(r.index, r.time, mesh, labels, r.droplets, weights=weights)
     return tracker.result()
 
 

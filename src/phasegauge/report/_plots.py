@@ -1,10 +1,58 @@
-"""The plots of the measure report, built from the result tables."""
+"""The plots of the measure report, built from the result tables.
+
+Each analysis owns its plot functions (``_plots_interface``, ``_plots_droplets``,
+``_plots_mixing``); this module picks the ones that have data for a run.
+"""
 
 from __future__ import annotations
+
+import numpy as np
 
 __all__ = ["measure_figures"]
 
 
+def _has(frame, column) -> bool:
+    return frame is not None and column in frame and np.isfinite(
+        np.asarray(frame[column], dtype=float)).any()
+
+
 def measure_figures(result) -> list:
     """(file stem, caption, matplotlib Figure) for every plot that has data."""
-    return []
+    from . import _plots_droplets, _plots_interface, _plots_mixing
+
+    steps = result.steps
+    figures = []
+    if _has(steps, "phase_volume_drift") and len(steps) > 1:
+        figures.append(("phase_volume_drift", "Phase-volume drift relative to the first step",
+                        _plots_mixing.plot_phase_volume_drift(steps)))
+    if _has(steps, "interface_width") and len(steps) > 1:
+        figures.append(("interface_width", "Interface width (5-95 %) in length units and in cells",
+                        _plots_interface.plot_interface_width(steps)))
+    snapshots = {r.index: r.contour for r in result.results
+                 if getattr(r, "contour", None) is not None and r.contour.n_elements}
+    if snapshots and result.mesh is not None:
+        times = {r.index: r.time for r in result.results}
+        figures.append(("interface_snapshots", "Interface (c = level) at chosen steps",
+                        _plots_interface.plot_interface_snapshots(result.mesh, snapshots, times=times)))
+    if "droplet_count" in steps and len(steps) > 1:
+        figures.append(("droplet_count", "Droplet count over time with breakup and coalescence events",
+                        _plots_droplets.plot_droplet_count(steps, result.events)))
+    if result.droplets is not None and len(result.droplets) and len(steps) > 1:
+        figures.append(("droplet_sizes", "Droplet equivalent diameters over time",
+                        _plots_droplets.plot_size_distribution(result.droplets)))
+    if _has(steps, "mixing_index") and len(steps) > 1:
+        figures.append(("mixing_index", "Volume-weighted mixing index over time",
+                        _plots_mixing.plot_mixing_index(steps)))
+    profiles = result.profiles
+    if profiles is not None and len(profiles):
+        by_step = {f"t = {t:g}": frame.drop(columns=["step", "time"])
+                   for t, frame in profiles.groupby("time", sort=True)}
+        if len(by_step) > 8:
+            keys = list(by_step)
+            pick = np.unique(np.linspace(0, len(keys) - 1, 8).round().astype(int))
+            by_step = {keys[i]: by_step[keys[i]] for i in pick}
+        weighting = "flow" if _has(profiles, "mixing_index_flow") else "area"
+        figures.append(("mixing_profile", "Mixing index along the channel (cross sections)",
+                        _plots_mixing.plot_mixing_profile(by_step, weighting=weighting,
+                                                          target=result.options.mixing_target)))
+    return figures
