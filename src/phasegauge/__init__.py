@@ -16,6 +16,7 @@ from .mesh import CellBlock, Mesh, RegularGrid
 from .indicator import Indicator, make_indicator, map_to_indicator, parse_range
 from .io import Series, Step, StepInfo, open_series
 from .describe import describe_series
+from .pipeline import MeasureOptions, MeasureResult, measure
 
 __all__ = [
     "__version__",
@@ -27,4 +28,5 @@ __all__ = [
     "Indicator", "make_indicator", "map_to_indicator", "parse_range",
     "Series", "Step", "StepInfo", "open_series",
     "describe_series",
+    "MeasureOptions", "MeasureResult", "measure",
 ]

@@ -1,0 +1,245 @@
+"""The measure pipeline: identical tables across executors and after resume, outputs, recipes."""
+
+import json
+import os
+import signal
+import subprocess
+import sys
+import time
+
+import numpy as np
+import pandas as pd
+import pytest
+from click.testing import CliRunner
+
+from phasegauge import measure
+from phasegauge.cli import main
+from phasegauge.errors import OptionError, OutputError, SeriesError
+from phasegauge.meshgen import grid_mesh, to_meshio
+from phasegauge.pipeline import MeasureOptions
+from phasegauge.recipes import load_recipe
+
+ROOT = os.path.dirname(os.path.dirname(os.path.abspath(__file__)))
+SAMPLES = os.path.join(ROOT, "sample_fields")
+
+
+def _moving_disc_series(folder, steps=6, n=24, kind="triangle"):
+    """Two discs drifting together on a fixed mesh, volume fraction on cells, time in a listing."""
+    mesh = grid_mesh((n, n), kind=kind)
+    x, y = mesh.cell_centroids[:, 0], mesh.cell_centroids[:, 1]
+    lines = []
+    for k in range(steps):
+        d = 0.3 - 0.05 * k
+        c = np.zeros(mesh.n_cells)
+        for cx in (0.5 - d, 0.5 + d):
+            r = np.hypot(x - cx, y - 0.5)
+            c = np.maximum(c, 0.5 * (1 + np.tanh((0.15 - r) / 0.02)))
+        name = f"disc_{k}.vtu"
+        to_meshio(mesh, cell_data={"alpha": c}).write(os.path.join(folder, name))
+        lines.append(f"{0.1 * k},{name}")
+    listing = os.path.join(folder, "run.steps")
+    with open(listing, "w") as f:
+        f.write("\n".join(lines) + "\n")
+    return listing
+
+
+def _tables(out):
+    return {name: pd.read_csv(os.path.join(out, name)) for name in ("steps.csv", "droplets.csv", "events.csv")}
+
+
+def test_measure_writes_every_output(tmp_path):
+    listing = _moving_disc_series(str(tmp_path))
+    out = tmp_path / "out"
+    result = measure(listing, "alpha", out=out)
+    for name in ("steps.csv", "droplets.csv", "events.csv", "report.html", "manifest.json",
+                 "phase_volume_drift.png", "interface_width.png", "droplet_count.png"):
+        assert (out / name).exists(), name
+    assert len(os.listdir(out / "contours")) == 6
+    steps = pd.read_csv(out / "steps.csv")
+    assert list(steps.columns[:4]) == ["step", "time", "phase_volume", "phase_volume_drift"]
+    assert list(steps["time"]) == pytest.approx([0.1 * k for k in range(6)])
+    # two discs approach and merge: a coalescence event (generated history)
+    assert list(steps["droplet_count"])[0] == 2 and list(steps["droplet_count"])[-1] == 1
+    assert "coalescence" in set(result.events["kind"])
+    manifest = json.loads((out / "manifest.json").read_text())
+    assert len(manifest["inputs"]) == 7 and all(len(i["sha256"]) == 64 for i in manifest["inputs"])
+    assert manifest["options"]["field"] == "alpha"
+    html = (out / "report.html").read_text()
+    assert "data:image/png;base64," in html and "describe the simulation" in html
+    assert isinstance(result.steps, pd.DataFrame)
+
+
+def test_existing_output_is_never_overwritten(tmp_path):
+    listing = _moving_disc_series(str(tmp_path), steps=2)
+    out = tmp_path / "out"
+    measure(listing, "alpha", out=out, analyses=("conservation",))
+    before = (out / "steps.csv").read_bytes()
+    with pytest.raises(OutputError, match="--overwrite"):
+        measure(listing, "alpha", out=out, analyses=("conservation",))
+    assert (out / "steps.csv").read_bytes() == before
+    measure(listing, "alpha", out=out, analyses=("conservation", "mixing"), overwrite=True)
+    assert "mixing_index" in pd.read_csv(out / "steps.csv")
+    foreign = tmp_path / "foreign"
+    foreign.mkdir()
+    (foreign / "notes.txt").write_text("mine")
+    with pytest.raises(OutputError, match="did not write"):
+        measure(listing, "alpha", out=foreign, overwrite=True)
+    assert (foreign / "notes.txt").read_text() == "mine"
+
+
+def test_serial_local_parallel_and_dask_give_identical_tables(tmp_path):
+    listing = _moving_disc_series(str(tmp_path), steps=5)
+    measure(listing, "alpha", out=tmp_path / "serial", write_contours=False)
+    measure(listing, "alpha", out=tmp_path / "local", workers=2, write_contours=False)
+    measure(listing, "alpha", out=tmp_path / "dask", scheduler="local", write_contours=False)
+    ref = _tables(tmp_path / "serial")
+    for other in ("local", "dask"):
+        got = _tables(tmp_path / other)
+        for name in ref:
+            pd.testing.assert_frame_equal(ref[name], got[name], check_exact=True)
+
+
+def test_resume_after_kill_gives_identical_tables(tmp_path):
+    from conftest import subprocess_env
+
+    listing = _moving_disc_series(str(tmp_path), steps=12, n=40)
+    measure(listing, "alpha", out=tmp_path / "whole", write_contours=False)
+    out = tmp_path / "killed"
+    cmd = [sys.executable, "-m", "phasegauge", "measure", listing, "-f", "alpha", "-o", str(out),
+           "--no-contours", "--quiet"]
+    proc = subprocess.Popen(cmd, env=subprocess_env(), stdout=subprocess.DEVNULL, stderr=subprocess.DEVNULL)
+    cache = out / ".cache"
+    deadline = time.time() + 120
+    while time.time() < deadline:
+        if cache.is_dir() and len(os.listdir(cache)) >= 3:
+            break
+        if proc.poll() is not None:
+            break
+        time.sleep(0.05)
+    if proc.poll() is None:
+        proc.send_signal(signal.SIGKILL)
+    proc.wait()
+    cached = len([f for f in os.listdir(cache) if f.endswith(".pkl")])
+    assert cached >= 1
+    if not (out / "steps.csv").exists():
+        with pytest.raises(OutputError, match="--resume"):
+            measure(listing, "alpha", out=out, write_contours=False)
+    result = measure(listing, "alpha", out=out, resume=True, write_contours=False)
+    assert sum(r.reused for r in result.results) >= min(cached, 12)
+    ref, got = _tables(tmp_path / "whole"), _tables(out)
+    for name in ref:
+        pd.testing.assert_frame_equal(ref[name], got[name], check_exact=True)
+
+
+def test_resume_refuses_other_options(tmp_path):
+    listing = _moving_disc_series(str(tmp_path), steps=2)
+    out = tmp_path / "out"
+    measure(listing, "alpha", out=out, analyses=("conservation",))
+    with pytest.raises(OutputError, match="other inputs or options"):
+        measure(listing, "alpha", out=out, resume=True, level=0.4, analyses=("conservation",))
+
+
+def test_options_are_checked_first():
+    with pytest.raises(OptionError, match="level must lie"):
+        MeasureOptions(field="c", level=1.5)
+    with pytest.raises(OptionError, match="unknown analyses"):
+        MeasureOptions(field="c", analyses=("vortices",))
+    with pytest.raises(OptionError, match="periodic axes"):
+        MeasureOptions(field="c", periodic=("w",))
+
+
+def test_times_must_increase(tmp_path):
+    m = grid_mesh((3, 3), kind="triangle")
+    for i in range(2):
+        to_meshio(m, cell_data={"alpha": np.zeros(m.n_cells)}).write(tmp_path / f"f{i}.vtu")
+    (tmp_path / "run.steps").write_text("0.5,f0.vtu\n0.5,f1.vtu\n")
+    with pytest.raises(SeriesError, match="times do not increase"):
+        measure(tmp_path / "run.steps", "alpha")
+
+
+def test_cross_sections_in_pipeline(tmp_path):
+    # a linear field c = y with plug flow u = (1, 0): every section has I = 1/3 (Danckwerts 1952;
+    # REFERENCES.md check value for c = y)
+    m = grid_mesh((10, 6), [(0, 2), (0, 1)], "mixed")
+    u = np.tile([1.0, 0.0, 0.0], (m.n_points, 1))
+    to_meshio(m, point_data={"c": m.points[:, 1], "u": u}).write(tmp_path / "ch.vtu")
+    res = measure(tmp_path / "ch.vtu", "c", velocity="u", section_axis="x", section_count=5,
+                  analyses=("mixing",))
+    assert len(res.profiles) == 5
+    assert np.allclose(res.profiles["segregation_intensity"], 1 / 3, atol=1e-9)
+    assert np.isnan(res.steps["mixing_length"][0])  # never reaches 0.9
+
+
+# ------------------------------------------------------------------ recipes
+def test_recipe_unknown_key_suggests_nearest(tmp_path):
+    recipe = tmp_path / "r.toml"
+    recipe.write_text('[input]\npath = "x.vtu"\nfeild = "c"\n[output]\nfolder = "o"\n')
+    with pytest.raises(OptionError, match="unknown key 'feild' in \\[input\\]; did you mean 'field'"):
+        load_recipe(recipe)
+    recipe.write_text('[inputs]\npath = "x.vtu"\n')
+    with pytest.raises(OptionError, match="did you mean 'input'"):
+        load_recipe(recipe)
+    recipe.write_text('[input]\npath = "x.vtu"\nfield = "c"\nrange = "0,1"\n[output]\nfolder = "o"\n')
+    with pytest.raises(OptionError, match="range must be a list"):
+        load_recipe(recipe)
+    recipe.write_text('[input]\npath = "x.vtu"\n[output]\nfolder = "o"\n')
+    with pytest.raises(OptionError, match="needs 'field'"):
+        load_recipe(recipe)
+
+
+@pytest.mark.parametrize("name", ["quickstart", "diffusion_audit", "breakup_tracking", "channel_mixing",
+                                  "smeared_vs_sharp"])
+def test_shipped_recipes_validate(name):
+    recipe = load_recipe(os.path.join(ROOT, "recipes", f"{name}.toml"))
+    path = recipe["input"]["path"] if "input" in recipe else recipe["first"]["path"]
+    assert os.path.exists(path)
+
+
+def test_channel_recipe_runs_on_the_sample(tmp_path):
+    import shutil
+
+    recipe = load_recipe(os.path.join(ROOT, "recipes", "channel_mixing.toml"))
+    text = open(os.path.join(ROOT, "recipes", "channel_mixing.toml")).read()
+    text = text.replace('"../sample_fields/', f'"{SAMPLES}/').replace('"../out/channel_mixing"', f'"{tmp_path}/o"')
+    (tmp_path / "r.toml").write_text(text)
+    res = CliRunner().invoke(main, ["run", str(tmp_path / "r.toml"), "--quiet"])
+    assert res.exit_code == 0, res.output
+    steps = pd.read_csv(tmp_path / "o" / "steps.csv")
+    # at the lowest Peclet number (the step time of this sample) the streams mix within the channel;
+    # faster flow leaves them less mixed at the outlet (advection-diffusion: mixing length ~ Pe)
+    assert np.isfinite(steps["mixing_length"][0])
+    profiles = pd.read_csv(tmp_path / "o" / "profiles.csv")
+    outlet = profiles.loc[profiles.groupby("step")["position"].idxmax(), "mixing_index_flow"].to_numpy()
+    assert np.all(np.diff(outlet) < 0)
+    assert (tmp_path / "o" / "profiles.csv").exists() and (tmp_path / "o" / "mixing_profile.png").exists()
+    shutil.rmtree(tmp_path / "o")
+    assert recipe["kind"] == "measure"
+
+
+def test_cli_measure_and_errors(tmp_path):
+    listing = _moving_disc_series(str(tmp_path), steps=2)
+    out = tmp_path / "o"
+    res = CliRunner().invoke(main, ["measure", listing, "-f", "alpha", "--range", "0,1", "-o", str(out)])
+    assert res.exit_code == 0, res.output
+    assert "report:" in res.output
+    res = CliRunner().invoke(main, ["measure", listing, "-f", "alpha", "-o", str(out)])
+    assert res.exit_code == 2 and "--overwrite" in res.output
+    res = CliRunner().invoke(main, ["measure", listing, "-f", "nope", "-o", str(tmp_path / "o2"), "--strict"])
+    assert res.exit_code == 2 and "field 'nope' not found; fields there: alpha" in res.output
+    res = CliRunner().invoke(main, ["measure", listing, "-f", "alpha", "--range", "-1,1", "-o", str(tmp_path / "o3")])
+    assert res.exit_code == 0, res.output
+
+
+def test_bad_step_skipped_and_recorded(tmp_path):
+    listing = _moving_disc_series(str(tmp_path), steps=3)
+    with open(tmp_path / "disc_1.vtu", "wb") as f:
+        f.write(b"<VTKFile broken")
+    out = tmp_path / "o"
+    with pytest.warns(Warning, match="skipped"):
+        result = measure(listing, "alpha", out=out, analyses=("conservation",))
+    assert list(result.steps["step"]) == [0, 2] and len(result.skipped) == 1
+    manifest = json.loads((out / "manifest.json").read_text())
+    assert "disc_1.vtu" in manifest["skipped_steps"][0]
+    assert "Skipped steps" in (out / "report.html").read_text()
+    with pytest.raises(Exception, match="disc_1.vtu"):
+        measure(listing, "alpha", analyses=("conservation",), strict=True)
