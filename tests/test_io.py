@@ -225,3 +225,40 @@ def test_errors_pickle_and_keep_their_parts():
     assert str(back) == "a.vtu, step 3: field 'phi' not found; fields there: c; name one of those fields with --field"
     assert isinstance(back, KeyError)
     assert isinstance(FieldShapeError("x"), ValueError)
+
+
+def test_structured_vtk_formats_read_through_vtk(tmp_path):
+    # VTK XML image, rectilinear and structured grids and legacy structured points: meshio does not
+    # read them, VTK's own readers do (pyvista); measures checked against the exact box volume
+    import pyvista as pv
+
+    img = pv.ImageData(dimensions=(5, 4, 3), spacing=(0.25, 0.5, 1.0))
+    img["phi"] = np.linspace(-1, 1, img.n_points)
+    img.field_data["TimeValue"] = np.array([2.5])
+    img.save(tmp_path / "a.vti")
+    img.save(tmp_path / "legacy.vtk")
+    rect = pv.RectilinearGrid(np.array([0, 1, 3.0]), np.array([0, 2.0]), np.array([0, 1.0]))
+    rect.save(tmp_path / "b.vtr")
+    x, y, z = np.meshgrid(np.linspace(0, 1, 3), np.linspace(0, 1, 4), np.linspace(0, 1, 2), indexing="ij")
+    pv.StructuredGrid(x, y, z).save(tmp_path / "c.vts")
+    s = Series(tmp_path / "a.vti")
+    step = s.read(0)
+    assert step.mesh.cell_type_counts == {"hexahedron": 24} and step.mesh.total_measure == pytest.approx(3.0)
+    assert s.times[0] == 2.5 and s.time_origins == ["file"]
+    assert step.mesh.regular_grid is not None
+    assert Series(tmp_path / "legacy.vtk").read(0).mesh.total_measure == pytest.approx(3.0)
+    assert Series(tmp_path / "b.vtr").read(0).mesh.total_measure == pytest.approx(6.0)
+    assert Series(tmp_path / "c.vts").read(0).mesh.total_measure == pytest.approx(1.0)
+
+
+def test_vtk_collection_file(tmp_path):
+    m = grid_mesh((2, 2), kind="triangle")
+    for i in range(3):
+        _write(tmp_path / f"p_{i}.vtu", m, {"phi": np.full(m.n_points, float(i))})
+    (tmp_path / "run.pvd").write_text(
+        '<?xml version="1.0"?><VTKFile type="Collection" version="0.1"><Collection>'
+        + "".join(f'<DataSet timestep="{0.2 * i}" part="0" file="p_{i}.vtu"/>' for i in range(3))
+        + "</Collection></VTKFile>")
+    s = Series(tmp_path / "run.pvd")
+    assert np.allclose(s.times, [0, 0.2, 0.4]) and s.time_origins == ["collection"]
+    assert float(s.read(2).fields.point_data["phi"][0]) == 2.0

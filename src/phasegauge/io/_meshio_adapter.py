@@ -20,7 +20,9 @@ from ..errors import (FieldShapeError, InputFileNotFound, UnreadableFileError,
                       UnsupportedMeshError)
 from ..mesh import Mesh
 
-MESH_SUFFIXES = (".vtu", ".vtk", ".xdmf", ".xmf")
+MESH_SUFFIXES = (".vtu", ".vtk", ".xdmf", ".xmf", ".vti", ".vtr", ".vts")
+#: VTK XML structured formats meshio does not read: read with VTK's own readers (through pyvista)
+STRUCTURED_SUFFIXES = (".vti", ".vtr", ".vts")
 _FORMATS = {".vtu": "vtu", ".vtk": "vtk", ".xdmf": "xdmf", ".xmf": "xdmf"}
 
 _registered = False
@@ -76,7 +78,10 @@ def read_meshio(path: str):
     if os.path.getsize(path) == 0:
         raise UnreadableFileError("the file is empty", where=path,
                                   fix="the solver may have been stopped while writing; rewrite or remove the step")
-    fmt = _FORMATS.get(os.path.splitext(path)[1].lower())
+    suffix = os.path.splitext(path)[1].lower()
+    if suffix in STRUCTURED_SUFFIXES:
+        return _read_with_vtk(path)
+    fmt = _FORMATS.get(suffix)
     if fmt is None:
         raise UnreadableFileError("is not a .vtu, .vtk, .xdmf or .xmf file", where=path,
                                   fix="convert the file to VTK or XDMF")
@@ -88,10 +93,43 @@ def read_meshio(path: str):
     except MemoryError:
         raise
     except Exception as exc:  # meshio raises many kinds; all mean the same to the user
+        if fmt == "vtk" and _legacy_structured(path):
+            return _read_with_vtk(path)
         raise UnreadableFileError(
             f"cannot be read as a mesh ({_short(exc)})", where=path,
             fix="check that the file is complete VTK (.vtu, .vtk) or XDMF and was fully written"
         ) from None
+
+
+def _legacy_structured(path: str) -> bool:
+    """True for a legacy VTK file holding a structured dataset (which meshio does not read)."""
+    try:
+        with open(path, "rb") as handle:
+            head = handle.read(1024).upper()
+    except OSError:
+        return False
+    return any(k in head for k in (b"STRUCTURED_POINTS", b"STRUCTURED_GRID", b"RECTILINEAR_GRID"))
+
+
+def _read_with_vtk(path: str):
+    """Read a structured VTK dataset with VTK's own reader and hand it over as a meshio mesh."""
+    try:
+        import pyvista
+
+        with warnings.catch_warnings():
+            warnings.simplefilter("ignore")
+            data = pyvista.read(path)
+            grid = data.cast_to_unstructured_grid()
+            raw = pyvista.to_meshio(grid)
+    except Exception as exc:
+        raise UnreadableFileError(
+            f"cannot be read as a structured VTK dataset ({_short(exc)})", where=path,
+            fix="check that the file is complete and was fully written") from None
+    if grid.n_cells == 0:
+        raise UnreadableFileError("holds no cells", where=path,
+                                  fix="the file may be truncated; write it again")
+    raw.field_data = {k: np.asarray(data.field_data[k]) for k in data.field_data.keys()}
+    return raw
 
 
 def _short(exc: BaseException) -> str:
