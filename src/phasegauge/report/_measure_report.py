@@ -160,8 +160,9 @@ def _key_figures(result) -> list:
     audit = result.audit or {}
     for key, label in (("D_num", "numerical diffusivity"), ("D_num_stderr", "numerical diffusivity, standard error"),
                        ("D_ratio", "numerical / physical diffusivity")):
-        if audit.get(key) is not None:
-            pairs.append((label, audit[key]))
+        value = audit.get(key)
+        if value is not None and np.isfinite(float(value)):
+            pairs.append((label, value))
     return pairs
 
 
