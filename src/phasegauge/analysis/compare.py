@@ -89,7 +89,7 @@ def pair_times(times_a, times_b, *, tolerance: float | None = None):
 
     Examples
     --------
-    >>> pairs, ua, ub = pair_times([0.0, 0.1, 0.2, 0.3], [0.0, 0.15, 0.201])
+    >>> pairs, ua, ub = pair_times([0.0, 0.1, 0.2, 0.3], [0.0, 0.17, 0.201])
     >>> pairs[["step_a", "step_b"]].values.tolist(), ua, ub
     ([[0, 0], [2, 2]], [1, 3], [1])
     """
@@ -105,7 +105,7 @@ def pair_times(times_a, times_b, *, tolerance: float | None = None):
     tol = float(tolerance) + 1e-12 * scale  # round-off in written times
     empty = pd.DataFrame({"step_a": sa[:0], "step_b": sb[:0], "time_a": ta[:0], "time_b": tb[:0]})
     if ta.size == 0 or tb.size == 0:
-        return empty, list(sa), list(sb)
+        return empty, sa.tolist(), sb.tolist()
     order_b = np.argsort(tb, kind="stable")
     sorted_b = tb[order_b]
 
@@ -129,8 +129,8 @@ def pair_times(times_a, times_b, *, tolerance: float | None = None):
     order = np.argsort(ta[ia], kind="stable")
     ia, ib = ia[order], ib[order]
     pairs = pd.DataFrame({"step_a": sa[ia], "step_b": sb[ib], "time_a": ta[ia], "time_b": tb[ib]})
-    unpaired_a = [s for k, s in enumerate(sa) if k not in set(ia.tolist())]
-    unpaired_b = [s for k, s in enumerate(sb) if k not in set(ib.tolist())]
+    unpaired_a = np.delete(sa, ia).tolist()
+    unpaired_b = np.delete(sb, ib).tolist()
     return pairs.reset_index(drop=True), unpaired_a, unpaired_b
 
 
