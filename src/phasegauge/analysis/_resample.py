@@ -22,7 +22,6 @@ Samples outside the mesh (or in cells with a non-finite corner value) are NaN.
 
 from __future__ import annotations
 
-import math
 import warnings
 from dataclasses import dataclass
 
