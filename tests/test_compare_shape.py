@@ -1,7 +1,5 @@
 """Resampling onto a common grid and shape comparison, against analytic geometry and libraries."""
 
-import warnings
-
 import numpy as np
 import pytest
 from scipy.spatial.distance import directed_hausdorff
