@@ -18,7 +18,7 @@ import numpy as np
 
 from .errors import OptionError
 
-__all__ = ["RunSpec", "CompareResult", "compare_runs", "compare_arguments", "bubble_history"]
+__all__ = ["RunSpec", "CompareResult", "compare_runs", "compare_arguments"]
 
 
 @dataclass(frozen=True)
@@ -45,20 +45,6 @@ class CompareResult:
     first: object
     second: object
     labels: tuple
-
-
-def bubble_history(result):
-    """Per step, the largest droplet's time, circularity, centroid and velocity (benchmark quantities)."""
-    import pandas as pd
-
-    drops = result.droplets
-    if drops is None or len(drops) == 0:
-        return pd.DataFrame(columns=["time", "circularity", "centroid_y", "velocity_y"])
-    idx = drops.groupby("step")["volume"].idxmax()
-    rows = drops.loc[idx].sort_values("time")
-    cols = [c for c in ("time", "circularity", "centroid_x", "centroid_y", "centroid_z", "velocity_x",
-                        "velocity_y", "velocity_z", "volume") if c in rows]
-    return rows[cols].reset_index(drop=True)
 
 
 def compare_runs(first: RunSpec, second: RunSpec, *, out=None, overwrite: bool = False, level: float = 0.5,
@@ -109,38 +95,47 @@ def compare_runs(first: RunSpec, second: RunSpec, *, out=None, overwrite: bool =
                                  velocity=spec.velocity)
         runs.append(measure(spec.path, options=options, workers=workers, progress=progress, snapshots=0))
     res_a, res_b = runs
-    pairs, unpaired_a, unpaired_b = cmp.pair_times(res_a.steps["time"].to_numpy(), res_b.steps["time"].to_numpy(),
-                                                   tolerance=time_tolerance)
+    times_a = pd.Series(res_a.steps["time"].to_numpy(), index=res_a.steps["step"].to_numpy())
+    times_b = pd.Series(res_b.steps["time"].to_numpy(), index=res_b.steps["step"].to_numpy())
+    pairs, unpaired_a, unpaired_b = cmp.pair_times(times_a, times_b, tolerance=time_tolerance)
     metrics = cmp.compare_metrics(res_a.steps, res_b.steps, pairs=pairs)
     shapes = []
     series_a, series_b = Series(first.path), Series(second.path)
-    step_a_index = res_a.steps["step"].to_numpy()
-    step_b_index = res_b.steps["step"].to_numpy()
     overlays = []
-    keep = set(np.linspace(0, len(pairs) - 1, min(snapshots, len(pairs))).round().astype(int)) if len(pairs) else set()
+    n_pairs = len(pairs)
+    keep = set(np.linspace(0, n_pairs - 1, min(snapshots, n_pairs)).round().astype(int)) if n_pairs else set()
+    grids = {}
     for k, row in enumerate(pairs.itertuples(index=False)):
-        # pair_times numbers steps by their position in the times given: map back to series steps
-        sa = series_a.read(int(step_a_index[int(row.step_a)]))
-        sb = series_b.read(int(step_b_index[int(row.step_b)]))
+        sa = series_a.read(int(row.step_a))
+        sb = series_b.read(int(row.step_b))
         ca = make_indicator(sa.mesh, sa.fields, first.field, value_range=first.value_range, phase=first.phase,
                             where=sa.info.where, warn=False)
         cb = make_indicator(sb.mesh, sb.fields, second.field, value_range=second.value_range,
                             phase=second.phase, where=sb.info.where, warn=False)
-        shape = cmp.shape_comparison(sa.mesh, ca.point, sb.mesh, cb.point, level=level, spacing=spacing)
-        shapes.append({"time": float(row.time_a), **{k2: v for k2, v in shape.items() if np.isscalar(v)}})
+        key = (sa.mesh.signature, sb.mesh.signature)
+        if key not in grids:  # one sampling grid while both meshes stay the same
+            grids = {key: cmp.common_grid(sa.mesh, sb.mesh, spacing=spacing)}
+        grid = grids[key]
+        shape = cmp.shape_comparison(sa.mesh, ca.point, sb.mesh, cb.point, level=level, grid=grid)
+        shapes.append({"step_a": int(row.step_a), "step_b": int(row.step_b),
+                       **{name: value for name, value in shape.items() if np.isscalar(value)}})
         if k in keep:
-            overlays.append((float(row.time_a), sa.mesh, ca.point, sb.mesh, cb.point))
+            overlays.append((float(row.time_a), sa.mesh, ca.point, sb.mesh, cb.point, grid))
     series_a.close()
     series_b.close()
-    shape_df = pd.DataFrame(shapes)
-    if len(shape_df):
-        comparison = shape_df.merge(metrics, on="time", how="right") if "time" in metrics else shape_df
+    if shapes:
+        shape_df = pd.DataFrame(shapes)
+        comparison = metrics.merge(shape_df, on=["step_a", "step_b"], how="left")
+        lead = ["time", "step_a", "step_b", "time_a", "time_b"] + [c for c in cmp.SHAPE_COLUMNS if c in comparison]
+        lead = [c for c in dict.fromkeys(lead) if c in comparison]
+        comparison = comparison[lead + [c for c in comparison.columns if c not in lead]]
     else:
         comparison = metrics
     drop_stats = cmp.compare_droplet_statistics(res_a.droplets, res_b.droplets, pairs)
     checks = []
     if rising_bubble:
-        checks.append(references.check_rising_bubble(bubble_history(res_a)).assign(run=labels[0]))
+        checks.append(references.check_rising_bubble(references.bubble_history(res_a.droplets))
+                      .assign(run=labels[0]))
     if reference_table:
         checks.append(references.check_against_table(_reference_quantities(res_a), reference_table)
                       .assign(run=labels[0]))
@@ -160,7 +155,9 @@ def compare_runs(first: RunSpec, second: RunSpec, *, out=None, overwrite: bool =
 def _reference_quantities(result):
     """The steps table joined with the largest droplet's quantities (for a user's reference table)."""
     steps = result.steps.copy()
-    bubble = bubble_history(result)
+    from .analysis.references import bubble_history
+
+    bubble = bubble_history(result.droplets) if len(result.droplets) else result.droplets
     if len(bubble):
         extra = bubble.drop(columns=[c for c in bubble.columns if c in steps.columns and c != "time"])
         steps = steps.merge(extra, on="time", how="left")

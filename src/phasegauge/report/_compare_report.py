@@ -13,7 +13,32 @@ from ._files import (RUN_MARKER, atomic_save_figure, atomic_write_csv, atomic_wr
 from ._html import Page
 from ._measure_report import CAUTION, input_files
 
-__all__ = ["write_compare_report"]
+__all__ = ["write_compare_report", "compare_figures"]
+
+
+def compare_figures(result, *, overlays, level: float) -> list:
+    """(file stem, caption, Figure) of a comparison: overlays, metric curves, differences, shapes."""
+    from . import _plots_compare as plots
+
+    labels = result.labels
+    figures = []
+    for k, (t, mesh_a, ca, mesh_b, cb, grid) in enumerate(overlays):
+        figures.append((f"overlay_{k}", f"Both interfaces at t = {t:g}",
+                        plots.plot_interface_overlay(mesh_a, ca, mesh_b, cb, level=level, grid=grid, labels=labels,
+                                                     title=f"t = {t:g}")))
+    comparison = result.comparison
+    if comparison is not None and len(comparison) > 1:
+        wanted = [m for m in ("phase_volume", "interface_size", "interface_width", "droplet_count",
+                              "mixing_index") if f"{m}_a" in comparison]
+        if wanted:
+            figures.append(("metric_curves", "Metrics of both runs over time",
+                            plots.plot_metric_curves(comparison, metrics=wanted, labels=labels)))
+            figures.append(("metric_differences", "Relative differences of the metrics over time",
+                            plots.plot_metric_differences(comparison, metrics=wanted)))
+        if "mismatch_volume" in comparison:
+            figures.append(("shape_history", "Shape comparison over time",
+                            plots.plot_shape_history(comparison)))
+    return figures
 
 
 def write_compare_report(out, result, *, specs, overlays, started: float, level: float) -> None:
@@ -24,7 +49,6 @@ def write_compare_report(out, result, *, specs, overlays, started: float, level:
     import matplotlib.pyplot as plt
 
     from ..io import Series
-    from . import _plots_compare as plots
 
     out = os.fspath(out)
     written = []
@@ -38,7 +62,7 @@ def write_compare_report(out, result, *, specs, overlays, started: float, level:
         atomic_write_csv(os.path.join(out, f"steps_{label}.csv"), res.steps)
         written.append(f"steps_{label}.csv")
     pngs = []
-    for stem, caption, fig in plots.compare_figures(result, overlays=overlays, level=level):
+    for stem, caption, fig in compare_figures(result, overlays=overlays, level=level):
         png = atomic_save_figure(os.path.join(out, f"{stem}.png"), fig)
         plt.close(fig)
         pngs.append((caption, png))

@@ -1,0 +1,31 @@
+"""The public API: every name in every __all__ imports (STYLE.md)."""
+
+import importlib
+
+import pytest
+
+MODULES = ["phasegauge", "phasegauge.io", "phasegauge.report", "phasegauge.samples", "phasegauge.analysis",
+           "phasegauge.analysis.interface", "phasegauge.analysis.droplets", "phasegauge.analysis.tracking",
+           "phasegauge.analysis.mixing", "phasegauge.analysis.conservation", "phasegauge.analysis.compare",
+           "phasegauge.analysis.references", "phasegauge.errors", "phasegauge.mesh", "phasegauge.indicator",
+           "phasegauge.pipeline", "phasegauge.recipes", "phasegauge.comparison", "phasegauge.meshgen"]
+
+
+@pytest.mark.parametrize("name", MODULES)
+def test_every_public_name_imports(name):
+    module = importlib.import_module(name)
+    assert module.__all__, name
+    for item in module.__all__:
+        assert getattr(module, item) is not None, f"{name}.{item}"
+
+
+def test_cli_starts_without_heavy_libraries():
+    import subprocess
+    import sys
+
+    from conftest import subprocess_env
+
+    code = ("import sys, phasegauge.cli; heavy = [m for m in ('pandas', 'matplotlib', 'pyvista', 'vtk', "
+            "'skimage', 'dask', 'scipy.spatial') if m in sys.modules]; print(','.join(heavy))")
+    out = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True, env=subprocess_env())
+    assert out.returncode == 0 and out.stdout.strip() == "", out.stdout + out.stderr
