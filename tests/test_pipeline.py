@@ -111,7 +111,7 @@ def test_resume_after_kill_gives_identical_tables(tmp_path):
     cache = out / ".cache"
     deadline = time.time() + 120
     while time.time() < deadline:
-        if cache.is_dir() and len(os.listdir(cache)) >= 3:
+        if cache.is_dir() and len([f for f in os.listdir(cache) if f.endswith(".pkl")]) >= 3:
             break
         if proc.poll() is not None:
             break
