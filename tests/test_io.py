@@ -249,16 +249,3 @@ def test_structured_vtk_formats_read_through_vtk(tmp_path):
     assert Series(tmp_path / "legacy.vtk").read(0).mesh.total_measure == pytest.approx(3.0)
     assert Series(tmp_path / "b.vtr").read(0).mesh.total_measure == pytest.approx(6.0)
     assert Series(tmp_path / "c.vts").read(0).mesh.total_measure == pytest.approx(1.0)
-
-
-def test_vtk_collection_file(tmp_path):
-    m = grid_mesh((2, 2), kind="triangle")
-    for i in range(3):
-        _write(tmp_path / f"p_{i}.vtu", m, {"phi": np.full(m.n_points, float(i))})
-    (tmp_path / "run.pvd").write_text(
-        '<?xml version="1.0"?><VTKFile type="Collection" version="0.1"><Collection>'
-        + "".join(f'<DataSet timestep="{0.2 * i}" part="0" file="p_{i}.vtu"/>' for i in range(3))
-        + "</Collection></VTKFile>")
-    s = Series(tmp_path / "run.pvd")
-    assert np.allclose(s.times, [0, 0.2, 0.4]) and s.time_origins == ["collection"]
-    assert float(s.read(2).fields.point_data["phi"][0]) == 2.0

@@ -139,6 +139,6 @@ def format_description(desc: dict) -> str:
 
 
 def _origin_words(origin: str) -> str:
-    words = {"xdmf": "XDMF Time", "collection": "VTK collection (.pvd) timestep", "file": "time value in each file", "listing": "step listing",
+    words = {"xdmf": "XDMF Time", "file": "time value in each file", "listing": "step listing",
              "index": "step index (no times stored)"}
     return " + ".join(words.get(o, o) for o in origin.split("+"))

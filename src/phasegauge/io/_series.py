@@ -127,36 +127,6 @@ def read_listing(path: str) -> list[tuple[float, str]]:
     return rows
 
 
-def _pvd_steps(path: str) -> list:
-    """Steps of a VTK collection file (``.pvd``): ``<DataSet timestep=".." file=".."/>`` entries."""
-    try:
-        root = ET.parse(path).getroot()
-    except (ET.ParseError, OSError) as exc:
-        raise UnreadableFileError(f"not a readable VTK collection ({exc})", where=path,
-                                  fix="check that the file is complete XML") from None
-    base = os.path.dirname(os.path.abspath(path))
-    entries = []
-    for item in root.iter("DataSet"):
-        name = item.get("file")
-        if not name:
-            continue
-        if item.get("part") not in (None, "0"):
-            raise SeriesError("the collection splits steps into several parts", where=path,
-                              fix="write one file per step, or list the step files in a 'time,path' listing")
-        file = name if os.path.isabs(name) else os.path.join(base, name)
-        if not os.path.exists(file):
-            raise InputFileNotFound("the collection names a file that does not exist", where=f"{path} -> {file}",
-                                    fix="restore the file or remove its entry")
-        t = item.get("timestep")
-        entries.append((float(t) if t is not None else None, file))
-    if not entries:
-        raise SeriesError("the VTK collection lists no data sets", where=path, fix="add <DataSet> entries")
-    out = []
-    for i, (t, file) in enumerate(entries):
-        out.append(StepInfo(i, float(i) if t is None else t, "index" if t is None else "collection", file))
-    return out
-
-
 def _is_mesh_file(name: str) -> bool:
     return name.lower().endswith(MESH_SUFFIXES)
 
@@ -284,9 +254,6 @@ class Series:
                     raise InputFileNotFound("the listing names a file that does not exist",
                                             where=f"{path} -> {file}", fix="fix the listing line or restore the file")
             return [StepInfo(i, t, "listing", f) for i, (t, f) in enumerate(rows)]
-        if path.lower().endswith(".pvd"):
-            self.kind = "vtk-collection"
-            return _pvd_steps(path)
         if path.lower().endswith((".xdmf", ".xmf")):
             grids = _xdmf_collection(path)
             if grids is not None:
@@ -304,8 +271,7 @@ class Series:
                 return steps
         if not _is_mesh_file(path):
             raise UnreadableFileError(
-                "is neither a mesh file (.vtu, .vtk, .vti, .vtr, .vts, .xdmf, .xmf), a VTK collection (.pvd) "
-                "nor a step listing "
+                "is neither a mesh file (.vtu, .vtk, .vti, .vtr, .vts, .xdmf, .xmf) nor a step listing "
                 "(.steps, .txt, .csv, .list)", where=path,
                 fix="give a mesh file, a folder, a quoted glob or a 'time,path' listing")
         self.kind = "file"
