@@ -625,11 +625,20 @@ def _flags(steps, droplets, audit, options, skipped) -> list:
         if audit.get("D_ratio") is not None and np.isfinite(audit.get("D_ratio", np.nan)):
             text += f" ({audit['D_ratio']:.3g} x the physical value)"
         flags.append(text)
+    open_domain = "open_boundary" in steps and bool(steps["open_boundary"].astype(bool).any())
     if "phase_volume_drift" in steps:
         worst = float(np.nanmax(np.abs(steps["phase_volume_drift"].to_numpy()))) if len(steps) else 0.0
         if worst > options.drift_tolerance:
-            flags.append(f"phase volume drifts by up to {100 * worst:.3g} % (tolerance "
-                         f"{100 * options.drift_tolerance:.3g} %)")
+            text = (f"phase volume drifts by up to {100 * worst:.3g} % (tolerance "
+                    f"{100 * options.drift_tolerance:.3g} %)")
+            if open_domain and "phase_volume_drift_closed" in steps:
+                closed = float(np.nanmax(np.abs(steps["phase_volume_drift_closed"].to_numpy())))
+                text += (f"; the domain has open boundaries, so this includes what crossed them: "
+                         f"{100 * closed:.3g} % is left after adding the outflow back")
+            flags.append(text)
+    if open_domain:
+        flags.append("the domain has inflow or outflow boundaries: phase-volume drift includes what crossed "
+                     "them (phase_volume_drift_closed adds it back)")
     if "overshoot_volume" in steps:
         worst = float(np.nanmax(steps["overshoot_volume"].to_numpy()))
         if worst > 0:
