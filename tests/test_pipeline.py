@@ -243,3 +243,13 @@ def test_bad_step_skipped_and_recorded(tmp_path):
     assert "Skipped steps" in (out / "report.html").read_text()
     with pytest.raises(Exception, match="disc_1.vtu"):
         measure(listing, "alpha", analyses=("conservation",), strict=True)
+
+
+def test_segregation_scale_option(tmp_path):
+    listing = _moving_disc_series(str(tmp_path), steps=2)
+    res = CliRunner().invoke(main, ["measure", listing, "-f", "alpha", "--analyses", "mixing", "--segregation-scale",
+                                    "-o", str(tmp_path / "o"), "--quiet"])
+    assert res.exit_code == 0, res.output
+    steps = pd.read_csv(tmp_path / "o" / "steps.csv")
+    # two discs of radius 0.15: the scale of segregation is a fraction of the disc size, well above the cell size
+    assert ((steps["segregation_scale"] > 1 / 24) & (steps["segregation_scale"] < 0.3)).all()

@@ -156,6 +156,8 @@ def _add(options):
 @click.option("--section-at", default=None, help="Cross-section positions, comma-separated (instead of a count).")
 @click.option("--mixing-target", type=float, default=0.9, show_default=True,
               help="Mixing index that defines the mixing length.")
+@click.option("--segregation-scale", is_flag=True,
+              help="Also compute Danckwerts' scale of segregation (an FFT of the domain per step).")
 @click.option("--drift-tolerance", type=float, default=1e-3, show_default=True,
               help="Relative phase-volume drift that is flagged.")
 @click.option("--workers", "-j", type=int, default=1, show_default=True, help="Local worker processes.")
@@ -168,7 +170,7 @@ def _add(options):
 @click.option("--quiet", "-q", is_flag=True, help="No progress display.")
 def measure(path, field, value_range, phase, level, velocity, out, analyses, adjacency, periodic,
             ignore_remerge, densities, diffusivity, box, section_axis, section_count, section_at,
-            mixing_target, drift_tolerance, workers, scheduler, resume, overwrite, strict, no_contours,
+            mixing_target, segregation_scale, drift_tolerance, workers, scheduler, resume, overwrite, strict, no_contours,
             snapshots, quiet):
     """Measure interface, droplets, mixing and conservation on every step of PATH.
 
@@ -185,6 +187,7 @@ def measure(path, field, value_range, phase, level, velocity, out, analyses, adj
         ignore_remerge_within=ignore_remerge, densities=_floats(densities, "--densities", 2),
         diffusivity=diffusivity, box=_box(box), section_axis=section_axis, section_count=section_count,
         section_positions=_floats(section_at, "--section-at"), mixing_target=mixing_target,
+        segregation_scale=segregation_scale,
         drift_tolerance=drift_tolerance, strict=strict)
     result = run_measure(path, options=options, out=out, workers=workers, scheduler=scheduler,
                          overwrite=overwrite, resume=resume, progress=None if not quiet else False,

@@ -83,6 +83,9 @@ class MeasureOptions:
     section_positions : tuple of float or None
     mixing_target : float
         Mixing index that defines the mixing length.
+    segregation_scale : bool
+        Also compute Danckwerts' scale of segregation (from the autocorrelation
+        on a regular resampling; costs an FFT of the domain per step).
     drift_tolerance : float
         Relative phase-volume drift that raises a flag in the report.
     strict : bool
@@ -105,6 +108,7 @@ class MeasureOptions:
     section_count: int = 20
     section_positions: tuple | None = None
     mixing_target: float = 0.9
+    segregation_scale: bool = False
     drift_tolerance: float = 1e-3
     strict: bool = False
 
@@ -386,6 +390,8 @@ def analyse_step(step, options: MeasureOptions, *, contour_dir: str | None = Non
         result.droplets = table
     if "mixing" in options.analyses:
         m.update(mixing.mixing_metrics(mesh, ind.cell, box=options.box))
+        if options.segregation_scale:
+            m["segregation_scale"] = mixing.segregation_scale(mesh, ind.cell)
         if options.section_axis is not None:
             profile = mixing.cross_sections(mesh, ind, axis=options.section_axis,
                                             positions=options.section_positions,

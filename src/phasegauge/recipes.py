@@ -65,7 +65,7 @@ RECIPE_SCHEMA = {
     "interface": {"level": (int, float), "diffusivity": (int, float), "contours": bool},
     "droplets": {"adjacency": str, "periodic": list, "ignore_remerge_within": int},
     "mixing": {"box": list, "section_axis": str, "section_count": int, "section_positions": list,
-               "target": (int, float)},
+               "target": (int, float), "segregation_scale": bool},
     "conservation": {"densities": list, "drift_tolerance": (int, float)},
     "run": {"analyses": list, "workers": int, "scheduler": str, "strict": bool, "snapshots": int},
     "output": {"folder": str, "overwrite": bool},
@@ -190,7 +190,8 @@ def measure_arguments(recipe: dict) -> dict:
         diffusivity=iface.get("diffusivity"), box=tuple(map(tuple, mix["box"])) if "box" in mix else None,
         section_axis=mix.get("section_axis"), section_count=mix.get("section_count", 20),
         section_positions=tuple(mix["section_positions"]) if "section_positions" in mix else None,
-        mixing_target=mix.get("target", 0.9), drift_tolerance=cons.get("drift_tolerance", 1e-3),
+        mixing_target=mix.get("target", 0.9), segregation_scale=mix.get("segregation_scale", False),
+        drift_tolerance=cons.get("drift_tolerance", 1e-3),
         strict=run.get("strict", False))
     return dict(path=inp["path"], options=options, out=out["folder"], overwrite=out.get("overwrite", False),
                 workers=run.get("workers", 1), scheduler=run.get("scheduler"),
