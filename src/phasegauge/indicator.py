@@ -9,8 +9,9 @@ Point and cell values are used consistently by every analysis:
 
 * data on points: ``c.point`` is the data; ``c.cell`` is the mean of each cell's
   corner values (:meth:`Mesh.point_to_cell`);
-* data on cells: ``c.cell`` is the data; ``c.point`` is the measure-weighted mean
-  of the cells around each point (:meth:`Mesh.cell_to_point`).
+* data on cells: ``c.cell`` is the data; ``c.point`` is a least-squares linear
+  fit through the cells around each point, limited to their range
+  (:meth:`Mesh.cell_to_point`).
 
 Integrals (volumes, moments) use ``c.cell`` with the cell measures; contours use
 ``c.point``. Values are not clipped: overshoots stay visible to the
