@@ -265,7 +265,8 @@ def samples(directory, only, overwrite):
         raise OptionError(f"unknown sample series {unknown}", fix="choose from " + ", ".join(SAMPLE_NAMES))
     if os.path.exists(directory) and not os.path.isdir(directory):
         raise OutputError("exists and is not a folder", where=directory, fix="choose another folder")
-    existing = [n for n in names if os.path.exists(os.path.join(directory, n))]
+    existing = [n for n in names if any(os.path.exists(os.path.join(directory, n + suffix))
+                                        for suffix in ("", ".xdmf", ".h5"))]
     if existing and not overwrite:
         raise OutputError(f"series already there: {', '.join(existing)}", where=directory,
                           fix="give --overwrite to replace them, or another folder")

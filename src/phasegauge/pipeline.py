@@ -637,7 +637,7 @@ def _measure(series, path, options, out, txn, *, workers, scheduler, overwrite, 
         prepare_output_folder(out, overwrite=overwrite, resume=resume, run_key=run_key)
         cache_dir = os.path.join(os.fspath(out), ".cache")
         os.makedirs(cache_dir, exist_ok=True)
-        txn.worth_keeping = lambda: any(f.endswith(".pkl") for f in os.listdir(cache_dir))
+        txn.worth_keeping = lambda: any(f.startswith("step_") and f.endswith(".pkl") for f in os.listdir(cache_dir))
         if write_contours and "interface" in options.analyses:
             contour_dir = os.path.join(os.fspath(out), "contours")
             os.makedirs(contour_dir, exist_ok=True)

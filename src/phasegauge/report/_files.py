@@ -40,7 +40,8 @@ def atomic_write_bytes(path, data: bytes) -> None:
     folder = os.path.dirname(os.path.abspath(path))
     try:
         os.makedirs(folder, exist_ok=True)
-        fd, tmp = tempfile.mkstemp(prefix=TEMP_PREFIX, suffix=os.path.basename(path), dir=folder)
+        # the temporary name ends in '.part', so a listing of '*.pkl' or '*.vtu' never takes it for output
+        fd, tmp = tempfile.mkstemp(prefix=TEMP_PREFIX, suffix=os.path.basename(path) + ".part", dir=folder)
     except OSError as exc:
         raise OutputError(f"cannot write here ({exc.strerror or exc})", where=path,
                           fix="choose an output folder you can write to") from None
@@ -50,11 +51,14 @@ def atomic_write_bytes(path, data: bytes) -> None:
             handle.flush()
             os.fsync(handle.fileno())
         os.replace(tmp, path)
-    except BaseException:
+    except BaseException as exc:
         try:
             os.unlink(tmp)
         except OSError:
             pass
+        if isinstance(exc, OSError):  # a full disk, a folder removed under the run...
+            raise OutputError(f"cannot write {os.path.basename(path)} ({exc.strerror or exc})", where=folder,
+                              fix="free space or choose an output folder you can write to") from None
         raise
 
 
