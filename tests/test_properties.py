@@ -72,6 +72,14 @@ def fields(draw, mesh):
     return location, np.clip(c, 0.0, 1.0)
 
 
+@st.composite
+def cases(draw):
+    """A random mesh and a random indicator on it: (mesh, 'point' or 'cell', values)."""
+    mesh = draw(meshes())
+    location, values = draw(fields(mesh))
+    return mesh, location, values
+
+
 def _indicator(mesh, location, values):
     fields_ = StepFields(point_data={"c": values}) if location == "point" else StepFields(cell_data={"c": values})
     return make_indicator(mesh, fields_, "c")
@@ -111,8 +119,7 @@ def _rebuild(mesh, points=None, blocks=None):
 @SETTINGS
 @given(st.data())
 def test_phase_volume_between_zero_and_the_domain(data):
-    mesh = data.draw(meshes())
-    location, c = data.draw(fields(mesh))
+    mesh, location, c = data.draw(cases())
     out = conservation.conservation_metrics(mesh, _indicator(mesh, location, c))
     domain = mesh.total_measure
     assert out["domain_volume"] == pytest.approx(domain, rel=1e-12)
@@ -125,8 +132,7 @@ def test_phase_volume_between_zero_and_the_domain(data):
 @SETTINGS
 @given(st.data())
 def test_segregation_intensity_between_zero_and_one(data):
-    mesh = data.draw(meshes())
-    location, c = data.draw(fields(mesh))
+    mesh, location, c = data.draw(cases())
     ind = _indicator(mesh, location, c)
     out = mixing.mixing_metrics(mesh, ind.cell)
     m = out["mean_indicator"]
@@ -141,8 +147,7 @@ def test_segregation_intensity_between_zero_and_one(data):
 @SETTINGS
 @given(st.data())
 def test_droplet_volumes_add_up(data):
-    mesh = data.draw(meshes())
-    location, c = data.draw(fields(mesh))
+    mesh, location, c = data.draw(cases())
     level = data.draw(st.sampled_from([0.3, 0.5, 0.7]))
     ind = _indicator(mesh, location, c)
     found = droplets.label_droplets(mesh, ind.cell, level=level)
@@ -166,8 +171,7 @@ def test_droplet_volumes_add_up(data):
 @SETTINGS
 @given(st.data())
 def test_renumbering_cells_and_points_changes_nothing(data):
-    mesh = data.draw(meshes())
-    location, c = data.draw(fields(mesh))
+    mesh, location, c = data.draw(cases())
     seed = data.draw(st.integers(0, 2 ** 16))
     rng = np.random.default_rng(seed)
     ref = _figures(mesh, location, c)
@@ -192,8 +196,7 @@ def test_renumbering_cells_and_points_changes_nothing(data):
 @SETTINGS
 @given(st.data())
 def test_translating_and_rotating_the_mesh_changes_nothing(data):
-    mesh = data.draw(meshes())
-    location, c = data.draw(fields(mesh))
+    mesh, location, c = data.draw(cases())
     ref = _figures(mesh, location, c)
     shift = np.zeros(3)
     shift[list(mesh.plane_axes)] = data.draw(st.lists(st.floats(-10, 10), min_size=mesh.dimension,

@@ -166,6 +166,35 @@ def test_xdmf_truncated_hdf5(tmp_path):
                            "ts.xdmf, step 0", "'ts.h5' is truncated", f"{len(data) // 2} of {len(data)} bytes")
 
 
+def test_xdmf_with_one_hdf5_file_per_step_skips_the_missing_one(tmp_path):
+    import h5py
+
+    grids = []
+    for i in range(3):
+        with h5py.File(tmp_path / f"d{i}.h5", "w") as f:
+            f["p"] = MESH.points
+            f["c"] = MESH.blocks[0].connectivity
+            f["alpha"] = DISC
+        grids.append(f"""<Grid Name="g{i}" GridType="Uniform"><Time Value="{0.5 * i}"/>
+<Topology TopologyType="Triangle" NumberOfElements="{MESH.n_cells}"><DataItem Dimensions="{MESH.n_cells} 3"
+ NumberType="Int" Precision="8" Format="HDF">d{i}.h5:/c</DataItem></Topology>
+<Geometry GeometryType="XYZ"><DataItem Dimensions="{MESH.n_points} 3" NumberType="Float" Precision="8"
+ Format="HDF">d{i}.h5:/p</DataItem></Geometry>
+<Attribute Name="alpha" AttributeType="Scalar" Center="Cell"><DataItem Dimensions="{MESH.n_cells}"
+ NumberType="Float" Precision="8" Format="HDF">d{i}.h5:/alpha</DataItem></Attribute></Grid>""")
+    (tmp_path / "run.xdmf").write_text(
+        '<?xml version="1.0"?><Xdmf Version="3.0"><Domain><Grid Name="TimeSeries" GridType="Collection" '
+        'CollectionType="Temporal">' + "".join(grids) + "</Grid></Domain></Xdmf>")
+    os.remove(tmp_path / "d1.h5")
+    code, err, _ = _cli(["measure", tmp_path / "run.xdmf", "-f", "alpha", "-o", tmp_path / "o"] + FAST)
+    assert code == 0
+    (line,) = _warning_lines(err)
+    assert "run.xdmf, step 1: step skipped: the HDF5 file 'd1.h5' that run.xdmf names is missing" in line
+    import pandas as pd
+
+    assert list(pd.read_csv(tmp_path / "o" / "steps.csv")["time"]) == [0.0, 1.0]
+
+
 def test_single_xdmf_missing_hdf5(tmp_path):
     to_meshio(MESH, cell_data={"alpha": DISC}).write(tmp_path / "one.xdmf")
     os.remove(tmp_path / "one.h5")
@@ -312,6 +341,14 @@ def test_duplicate_points_average_point_data(tmp_path):
     lookup = {tuple(p): i for i, p in enumerate(MESH.points)}
     order = np.array([lookup[tuple(p)] for p in pts])
     assert np.allclose(step.fields.point_data["phi"], expected[order])
+    # the merged mesh is built once and reused by the next step of the same layout
+    shutil.copy(tmp_path / "soup.vtu", tmp_path / "soup_2.vtu")
+    os.rename(tmp_path / "soup.vtu", tmp_path / "soup_1.vtu")
+    with pytest.warns(Warning, match="duplicate points merged"):
+        series = Series(tmp_path)
+        first, second = series.read(0), series.read(1)
+    assert first.mesh is second.mesh
+    assert np.array_equal(second.fields.point_data["phi"], step.fields.point_data["phi"])
 
 
 def test_unused_duplicate_points_are_harmless(tmp_path):
@@ -322,22 +359,53 @@ def test_unused_duplicate_points_are_harmless(tmp_path):
 
 
 # ------------------------------------------------------------------ series
-def test_long_series_skips_a_truncated_step_and_records_it(tmp_path):
-    folder = _folder(tmp_path, "run", count=5, bad=2, make_bad=lambda p: _truncated(p, binary=True))
+@pytest.mark.parametrize("bad", [0, 2])
+def test_long_series_skips_a_truncated_step_and_records_it(tmp_path, bad):
+    folder = _folder(tmp_path, "run", count=5, bad=bad, make_bad=lambda p: _truncated(p, binary=True))
     out = tmp_path / "o"
     code, err, _ = _cli(["measure", folder, "-f", "alpha", "-o", out] + FAST)
     assert code == 0
     (line,) = _warning_lines(err)
-    assert "s_2.vtu, step 2: step skipped:" in line and "truncated" in line
+    assert f"s_{bad}.vtu, step {bad}: step skipped:" in line and "truncated" in line
     manifest = json.loads((out / "manifest.json").read_text())
-    assert len(manifest["skipped_steps"]) == 1 and "s_2.vtu, step 2" in manifest["skipped_steps"][0]
+    assert len(manifest["skipped_steps"]) == 1 and f"s_{bad}.vtu, step {bad}" in manifest["skipped_steps"][0]
     assert "Skipped steps" in (out / "report.html").read_text()
     import pandas as pd
 
-    assert list(pd.read_csv(out / "steps.csv")["step"]) == [0, 1, 3, 4]
+    assert list(pd.read_csv(out / "steps.csv")["step"]) == [k for k in range(5) if k != bad]
     # strict: the same step stops the run
     _assert_one_error_line(["measure", folder, "-f", "alpha", "-o", tmp_path / "strict", "--strict"] + FAST,
-                           "s_2.vtu, step 2", "truncated")
+                           f"s_{bad}.vtu, step {bad}", "truncated")
+    # inspect describes the other steps and names the bad one
+    code, err, out_text = _cli(["inspect", folder])
+    assert code == 0 and f"unreadable  1 step(s): s_{bad}.vtu, step {bad}" in out_text
+    (line,) = _warning_lines(err)
+    assert f"s_{bad}.vtu, step {bad}" in line
+
+
+def test_failure_inside_names_the_step_exit_1(tmp_path, monkeypatch):
+    from phasegauge import pipeline
+
+    folder = _folder(tmp_path, "run", count=3)
+    real = pipeline.analyse_step
+
+    def broken(step, options, **kw):
+        if step.index == 1:
+            return 1 / 0
+        return real(step, options, **kw)
+
+    monkeypatch.setattr(pipeline, "analyse_step", broken)
+    code, err, _ = _cli(["measure", folder, "-f", "alpha", "-o", tmp_path / "o"] + FAST)
+    assert code == 1 and len(err) == 1
+    assert err[0].startswith("phasegauge: error: s_1.vtu, step 1: ZeroDivisionError: division by zero")
+    assert "rerun with --debug" in err[0]
+    res = CliRunner().invoke(main, ["--debug", "measure", folder, "-f", "alpha", "-o", str(tmp_path / "d")] + FAST)
+    # --debug lets the error through, with the original failure as its cause (the traceback to report)
+    causes, exc = [], res.exception
+    while exc is not None:
+        causes.append(type(exc))
+        exc = exc.__cause__
+    assert ZeroDivisionError in causes
 
 
 def test_many_bad_steps_give_one_warning_line(tmp_path):
@@ -423,7 +491,7 @@ def test_mesh_that_changes(tmp_path):
     c = fine.cell_centroids
     to_meshio(fine, cell_data={"alpha": 0.5 * (1 + np.tanh((0.25 - np.hypot(c[:, 0] - 0.5, c[:, 1] - 0.5)) / 0.05))}
               ).write(folder / "s_1.vtu")
-    code, err, _ = _cli(["measure", folder, "-f", "alpha", "-o", tmp_path / "o", "-q", "--no-contours"])
+    code, err, _ = _cli(["measure", folder, "-f", "alpha", "-o", tmp_path / "o"] + FAST)
     assert code == 0
     (line,) = _warning_lines(err)
     assert "the mesh changes between steps (at step 1; 2 meshes)" in line
@@ -436,10 +504,10 @@ def test_series_that_changes_dimension(tmp_path):
     folder.mkdir()
     for k, m in enumerate([MESH, grid_mesh((3, 3, 3)), MESH]):
         to_meshio(m, cell_data={"alpha": (m.cell_centroids[:, 0] > 0.5).astype(float)}).write(folder / f"s_{k}.vtu")
-    code, err, _ = _cli(["measure", folder, "-f", "alpha", "-o", tmp_path / "o", "-q", "--no-contours"])
+    code, err, _ = _cli(["measure", folder, "-f", "alpha", "-o", tmp_path / "o"] + FAST)
     assert code == 0
     assert any("s_1.vtu, step 1: step skipped: the mesh is 3D but at step 0 it is 2D" in ln for ln in err)
-    _assert_one_error_line(["measure", folder, "-f", "alpha", "-o", tmp_path / "s", "--strict", "-q"],
+    _assert_one_error_line(["measure", folder, "-f", "alpha", "-o", tmp_path / "s", "--strict"] + FAST,
                            "s_1.vtu, step 1", "the mesh is 3D")
 
 
@@ -517,16 +585,12 @@ def _run(args, cwd=None):
 def test_subprocess_error_and_warning_lines(tmp_path):
     empty = tmp_path / "empty.vtu"
     empty.write_bytes(b"")
-    folder = _folder(tmp_path, "run", count=3, bad=1, make_bad=lambda p: _truncated(p, binary=False))
     proc = _run(["inspect", empty])
     assert proc.returncode == 2 and proc.stderr.splitlines() == [
         "phasegauge: error: empty.vtu, step 0: the file is empty; the solver may have been stopped while writing; "
         "rewrite or remove the step"]
-    proc = _run(["measure", folder, "-f", "alpha", "-o", tmp_path / "o", "--strict"] + FAST)
-    lines = proc.stderr.splitlines()
-    assert proc.returncode == 2 and len(lines) == 1 and "s_1.vtu, step 1" in lines[0] and "Traceback" not in proc.stderr
-    proc = _run(["measure", folder, "-f", "alpha", "-o", tmp_path / "o2"] + FAST)
+    folder = _folder(tmp_path, "run", count=3, bad=1, make_bad=lambda p: _truncated(p, binary=False))
+    proc = _run(["measure", folder, "-f", "alpha", "-o", tmp_path / "o"] + FAST)
     lines = proc.stderr.splitlines()
     assert proc.returncode == 0 and len(lines) == 1 and lines[0].startswith("phasegauge: warning: s_1.vtu, step 1")
-    proc = _run(["--debug", "inspect", empty])
-    assert proc.returncode != 0 and "Traceback" in proc.stderr
+    assert "Traceback" not in proc.stderr

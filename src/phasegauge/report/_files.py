@@ -254,8 +254,7 @@ def _roll_back(txn: _Transaction, exc: Exception):
         elif txn.mode == "new":
             if txn.worth_keeping():
                 if isinstance(exc, PhasegaugeError):
-                    return exc.with_fix(f"{exc.fix}; the finished steps are kept in {out}: rerun with --resume "
-                                        "once the input is fixed")
+                    return exc.with_fix(f"{exc.fix}; the finished steps are kept in {out} for --resume")
             elif os.path.exists(os.path.join(out, RUN_MARKER)):
                 shutil.rmtree(out, ignore_errors=True)
                 if txn.existed_empty:
