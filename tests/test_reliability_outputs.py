@@ -9,17 +9,15 @@ import subprocess
 import sys
 import time
 
-import numpy as np
 import pandas as pd
 import pytest
 from click.testing import CliRunner
 
 from phasegauge.cli import main
 from phasegauge.errors import OutputError
-from phasegauge.meshgen import grid_mesh, to_meshio
+from phasegauge.meshgen import grid_mesh
 from phasegauge.report import _files
 
-ROOT = os.path.dirname(os.path.dirname(os.path.abspath(__file__)))
 FAST = ["--analyses", "conservation,droplets", "--no-contours", "-q"]
 
 try:  # the compare analysis is built apart; the compare command is checked where it exists

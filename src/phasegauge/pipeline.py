@@ -585,9 +585,28 @@ def measure(path, field: str | None = None, *, options: MeasureOptions | None = 
     Returns
     -------
     MeasureResult
+
+    Raises
+    ------
+    PhasegaugeError
+        Bad options or output folder; times that do not increase; the chosen
+        field missing (or not a scalar) at the first step; with
+        ``options.strict`` any bad step; without it, only when no step at all
+        can be analysed (the first step's error, with the count).
+
+    Notes
+    -----
+    Without ``strict``, a step whose input is bad (unreadable or missing
+    file, no finite values, a mesh without volume or of another dimension)
+    is skipped: one :class:`SkippedStepWarning` per kind of failure, and the
+    step is listed in ``MeasureResult.skipped``, the report and the manifest.
+    Other warnings (range, NaN values, mesh quality, gaps in the file
+    numbering) are issued once per kind, not once per step, and become flags.
+    With ``out``, a run that fails puts back the outputs ``overwrite`` had set
+    aside, and removes a new folder unless it holds finished steps (see
+    :func:`phasegauge.report._files.output_transaction`).
     """
     from .io import Series
-    from .progress import Progress
 
     if options is None:
         if field is None:
@@ -720,7 +739,7 @@ def assemble(series, results: list, options: MeasureOptions, *, notes=()) -> Mea
     records += [(SkippedStepWarning, f"step skipped: {r.error.what}; {r.error.fix}", r.error.where)
                 if r.error is not None else (SkippedStepWarning, f"step skipped: {r.skipped}", "")
                 for r in results if r.skipped is not None]
-    records += [rec for r in done for rec in r.warning_records]
+    records += [rec for r in done for rec in getattr(r, "warning_records", [])]  # (older caches lack them)
     summary = collapse_warnings(records)
     for category, text in summary:
         warnings.warn(category(text), stacklevel=2)
@@ -762,7 +781,7 @@ def _mesh_change_records(series, done) -> list:
     count = len({r.mesh_signature for r in done})
     at = ", ".join(str(i) for i in changes[:5]) + (" ..." if len(changes) > 5 else "")
     return [(SeriesWarning, f"the mesh changes between steps (at step {at}; {count} meshes): phase-volume drift "
-                            "across a change includes the solver's remapping", os.fspath(series.path))]
+                            "across a change includes any remapping of the solution", os.fspath(series.path))]
 
 
 def _track(series, done, options):

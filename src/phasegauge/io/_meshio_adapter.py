@@ -263,8 +263,8 @@ def _average_merged(values: np.ndarray, merge: np.ndarray, n: int) -> np.ndarray
 
 def _checked_mesh(mesh: Mesh, raw, where: str) -> Mesh:
     """Check a newly built mesh; merge coincident points."""
-    used = mesh.used_points
-    bad = int(np.count_nonzero(~np.isfinite(mesh.points[used]).all(axis=1)))
+    finite = np.isfinite(mesh.points).all(axis=1)
+    bad = 0 if finite.all() else int(np.count_nonzero(~finite[mesh.used_points]))
     if bad:
         raise UnsupportedMeshError(f"{bad} points of the cells have NaN or Inf coordinates", where=where,
                                    fix="the file is damaged or the mesh motion diverged; write the step again")
