@@ -249,3 +249,23 @@ def test_structured_vtk_formats_read_through_vtk(tmp_path):
     assert Series(tmp_path / "legacy.vtk").read(0).mesh.total_measure == pytest.approx(3.0)
     assert Series(tmp_path / "b.vtr").read(0).mesh.total_measure == pytest.approx(6.0)
     assert Series(tmp_path / "c.vts").read(0).mesh.total_measure == pytest.approx(1.0)
+
+
+def test_truncated_legacy_files_refused(tmp_path):
+    # regression: a truncated legacy UNSTRUCTURED_GRID file was taken for a structured one and handed to
+    # VTK's reader, which crashed the process; and a truncated binary structured file gave garbage values
+    import pyvista as pv
+
+    m = grid_mesh((4, 4), kind="triangle")
+    path = _write(tmp_path / "u.vtk", m, {"phi": np.zeros(m.n_points)}, binary=True)
+    data = path.read_bytes()
+    path.write_bytes(data[: int(len(data) * 0.7)])
+    with pytest.raises(UnreadableFileError, match="u.vtk"):
+        Series(path).read(0)
+    img = pv.ImageData(dimensions=(6, 5, 4))
+    img["phi"] = np.linspace(-1, 1, img.n_points)
+    img.save(tmp_path / "full.vtk", binary=True)
+    data = (tmp_path / "full.vtk").read_bytes()
+    (tmp_path / "cut.vtk").write_bytes(data[: int(len(data) * 0.7)])
+    with pytest.raises(UnreadableFileError, match="damaged or ends early"):
+        Series(tmp_path / "cut.vtk").read(0)

@@ -33,7 +33,8 @@ class _Group(click.Group):
         except (click.exceptions.Exit, click.exceptions.Abort, click.ClickException):
             raise
         except KeyboardInterrupt:
-            click.echo("phasegauge: interrupted; rerun with --resume to finish", err=True)
+            hint = "; rerun with --resume to finish" if ctx.invoked_subcommand in ("measure", "run") else ""
+            click.echo(f"phasegauge: interrupted{hint}", err=True)
             ctx.exit(130)
         except Exception as exc:  # a failure inside the tool
             if debug:
@@ -44,11 +45,30 @@ class _Group(click.Group):
             ctx.exit(1)
 
 
-def _show_warning(message, category, filename, lineno, file=None, line=None):
-    if issubclass(category, PhasegaugeWarning):
-        click.echo(f"phasegauge: warning: {message}", err=True)
-    else:
-        click.echo(f"phasegauge: warning: {category.__name__}: {message}", err=True)
+class _WarningPrinter:
+    """Print warnings as one line each on stderr; a repeat of the same kind is printed once.
+
+    Warnings from other libraries (numpy's "invalid value" and the like) are
+    not actionable for the user and only shown with ``--debug``.
+    """
+
+    def __init__(self, debug: bool):
+        self.debug = debug
+        self.seen = set()
+
+    def __call__(self, message, category, filename, lineno, file=None, line=None):
+        import re
+
+        text = " ".join(str(message).split())
+        if not issubclass(category, PhasegaugeWarning):
+            if not self.debug:
+                return
+            text = f"{category.__name__}: {text} ({os.path.basename(filename)}:{lineno})"
+        key = (category, re.sub(r"[-+]?(\d+\.?\d*|\.\d+)([eE][-+]?\d+)?", "#", text))
+        if key in self.seen:
+            return
+        self.seen.add(key)
+        click.echo(f"phasegauge: warning: {text}", err=True)
 
 
 @click.group(cls=_Group, context_settings={"help_option_names": ["-h", "--help"]})
@@ -59,7 +79,7 @@ def main(ctx, debug):
     """Measure interfaces, droplets, mixing and conservation in two-phase simulation output."""
     ctx.ensure_object(dict)
     ctx.obj["debug"] = debug
-    warnings.showwarning = _show_warning
+    warnings.showwarning = _WarningPrinter(debug)
 
 
 @main.command()
@@ -138,7 +158,7 @@ def _add(options):
 @main.command()
 @click.argument("path")
 @_add(_measure_options)
-@click.option("--out", "-o", "out", required=True, type=click.Path(file_okay=False), help="Output folder.")
+@click.option("--out", "-o", "out", required=True, help="Output folder.")
 @click.option("--analyses", default=",".join(("interface", "droplets", "mixing", "conservation")),
               show_default=True, help="Comma-separated subset of the analyses to run.")
 @click.option("--adjacency", type=click.Choice(["face", "point"]), default="face", show_default=True,
@@ -208,7 +228,7 @@ def _summary(result, out, quiet):
 
 
 @main.command()
-@click.argument("recipe", type=click.Path(dir_okay=False))
+@click.argument("recipe")
 @click.option("--overwrite", is_flag=True, default=None, help="Replace an existing output folder.")
 @click.option("--resume", is_flag=True, help="Finish an interrupted run.")
 @click.option("--workers", "-j", type=int, default=None, help="Local worker processes (overrides the recipe).")
@@ -216,17 +236,23 @@ def _summary(result, out, quiet):
 def run(recipe, overwrite, resume, workers, quiet):
     """Run a recipe file (TOML): a whole measure or compare run kept beside the case."""
     from .recipes import load_recipe, run_recipe
+    from .report._files import output_transaction
 
+    if os.path.isdir(recipe):
+        from .errors import OptionError
+
+        raise OptionError("is a folder, not a recipe file", where=recipe, fix="give the .toml file itself")
     loaded = load_recipe(recipe)
-    result = run_recipe(recipe, overwrite=overwrite or None, resume=resume, workers=workers,
-                        progress=None if not quiet else False)
+    with output_transaction(loaded["output"]["folder"]):
+        result = run_recipe(recipe, overwrite=overwrite or None, resume=resume, workers=workers,
+                            progress=None if not quiet else False)
     _summary(result, loaded["output"]["folder"], quiet)
 
 
 
 
 @main.command()
-@click.argument("directory", type=click.Path(file_okay=False))
+@click.argument("directory")
 @click.option("--only", default=None, help="Comma-separated names of the series to write (default: all).")
 @click.option("--overwrite", is_flag=True, help="Replace series already in DIRECTORY.")
 def samples(directory, only, overwrite):
@@ -240,10 +266,18 @@ def samples(directory, only, overwrite):
         from .errors import OptionError
 
         raise OptionError(f"unknown sample series {unknown}", fix="choose from " + ", ".join(SAMPLE_NAMES))
-    existing = [n for n in names if os.path.exists(os.path.join(directory, n))]
+    if os.path.exists(directory) and not os.path.isdir(directory):
+        raise OutputError("exists and is not a folder", where=directory, fix="choose another folder")
+    existing = [n for n in names if any(os.path.exists(os.path.join(directory, n + suffix))
+                                        for suffix in ("", ".xdmf", ".h5"))]
     if existing and not overwrite:
         raise OutputError(f"series already there: {', '.join(existing)}", where=directory,
                           fix="give --overwrite to replace them, or another folder")
+    try:
+        os.makedirs(directory, exist_ok=True)
+    except OSError as exc:
+        raise OutputError(f"cannot be created ({exc.strerror or exc})", where=directory,
+                          fix="choose a folder you can write to") from None
     written = write_samples(directory, names=names)
     for name, path in written.items():
         click.echo(f"{name}: {path}")
@@ -271,7 +305,7 @@ def samples(directory, only, overwrite):
               help="Check the first run against the rising-bubble benchmark, case 1 (Hysing et al. 2009).")
 @click.option("--reference-table", type=click.Path(dir_okay=False), default=None,
               help="CSV of reference values to check the first run against.")
-@click.option("--out", "-o", "out", required=True, type=click.Path(file_okay=False), help="Output folder.")
+@click.option("--out", "-o", "out", required=True, help="Output folder.")
 @click.option("--overwrite", is_flag=True, help="Replace an existing output folder.")
 @click.option("--workers", "-j", type=int, default=1, show_default=True, help="Local worker processes.")
 @click.option("--quiet", "-q", is_flag=True, help="No progress display.")
@@ -281,11 +315,13 @@ def compare(path_a, path_b, field_a, field_b, range_a, range_b, phase_a, phase_b
     """Compare two runs of the same case (for example diffuse versus sharp interface)."""
     from .comparison import RunSpec, compare_runs
     from .indicator import parse_range
+    from .report._files import output_transaction
 
     first = RunSpec(path_a, field_a, parse_range(range_a), phase_a, velocity_a, label_a)
     second = RunSpec(path_b, field_b, parse_range(range_b), phase_b, velocity_b, label_b)
-    result = compare_runs(first, second, out=out, overwrite=overwrite, level=level,
-                          time_tolerance=time_tolerance, spacing=spacing, reference_table=reference_table,
-                          rising_bubble=rising_bubble, workers=workers, progress=None if not quiet else False)
+    with output_transaction(out):
+        result = compare_runs(first, second, out=out, overwrite=overwrite, level=level,
+                              time_tolerance=time_tolerance, spacing=spacing, reference_table=reference_table,
+                              rising_bubble=rising_bubble, workers=workers, progress=None if not quiet else False)
     if not quiet:
         click.echo(f"compared {len(result.pairs)} paired times; report: {os.path.join(out, 'report.html')}")

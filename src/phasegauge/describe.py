@@ -3,10 +3,16 @@
 from __future__ import annotations
 
 import os
+import warnings
 
 import numpy as np
 
+from .errors import (FieldNotFoundError, InputError, InputFileNotFound, MeshWarning, PhasegaugeWarning,
+                     SeriesWarning, SkippedStepWarning, collapse_warnings)
 from .io import Series
+
+#: errors of one step's file: the step is reported as unreadable and the others are described
+_STEP_ERRORS = (InputError, FieldNotFoundError, InputFileNotFound)
 
 __all__ = ["describe_series", "format_description"]
 
@@ -30,34 +36,94 @@ def describe_series(path, *, scan: str = "auto") -> dict:
         JSON-ready: ``path, kind, steps, times, time_origin, points, cells,
         cell_types, boundary_cell_types, dimension, bounds, cell_size, mesh_changes,
         scanned_steps, fields`` (each field: ``name, location, components, min, max,
-        nonfinite``).
+        nonfinite``), ``unreadable_steps`` (one line each) and ``warnings``
+        (one line each, repeats over steps collapsed; also issued as warnings).
+        A time that could not be read is None.
+
+    Raises
+    ------
+    PhasegaugeError
+        The path holds no series, or no step of it can be read (the first
+        step's error).
     """
-    series = path if isinstance(path, Series) else Series(path)
+    with warnings.catch_warnings(record=True) as caught:
+        warnings.simplefilter("always")
+        series = path if isinstance(path, Series) else Series(path)
+        try:
+            desc = _describe(series, scan)
+        finally:
+            series.close()
+    records = [(w.category, getattr(w.message, "what", str(w.message)), getattr(w.message, "where", ""))
+               for w in caught if issubclass(w.category, PhasegaugeWarning)]
+    records += [(SkippedStepWarning, f"{err.what}; {err.fix}", err.where)
+                for err in desc.pop("_errors")]
+    summary = collapse_warnings(records)
+    for category, text in summary:
+        warnings.warn(category(text), stacklevel=2)
+    desc["warnings"] = [text for _, text in summary]
+    return desc
+
+
+def _describe(series, scan: str) -> dict:
     n = len(series)
-    first = series.read(0)
+    errors = []
+    first = None
+    for i in range(n):  # the first step that can be read gives the mesh
+        try:
+            first = series.read(i)
+            break
+        except _STEP_ERRORS as err:
+            errors.append(err)
+    if first is None:
+        err = errors[0]
+        if n > 1:
+            err = type(err)(f"{err.what} (no step can be read: all {n} failed; this is the first)",
+                            where=err.where, fix=err.fix)
+        raise err
     mesh = first.mesh
     if scan == "all":
         indices = list(range(n))
     elif scan == "first":
-        indices = [0]
+        indices = [first.index]
     elif n * mesh.n_cells <= FULL_SCAN_CELL_STEPS:
         indices = list(range(n))
     else:
-        indices = sorted({0, n - 1})
+        indices = sorted({first.index, n - 1})
     stats: dict = {}
     meshes = {mesh.signature}
+    dimensions = {mesh.dimension}
+    scanned = []
     for i in indices:
-        step = first if i == 0 else series.read(i)
+        if i < first.index:
+            continue  # already failed above
+        try:
+            step = first if i == first.index else series.read(i)
+        except _STEP_ERRORS as err:
+            errors.append(err)
+            continue
+        scanned.append(i)
         meshes.add(step.mesh.signature)
+        dimensions.add(step.mesh.dimension)
         for location, data in (("point", step.fields.point_data), ("cell", step.fields.cell_data)):
             for name, values in data.items():
                 _accumulate(stats, name, location, np.asarray(values))
+    problem = series.time_problem()
+    if problem is not None:
+        warnings.warn(SeriesWarning(f"{problem.what}; measure refuses this series: {problem.fix}",
+                                    where=problem.where), stacklevel=3)
+    if len(dimensions) > 1:
+        warnings.warn(SeriesWarning("the steps mix 2D and 3D meshes; measure skips the steps whose dimension "
+                                    "differs from the first step's", where=os.fspath(series.path)), stacklevel=3)
+    word = "area" if mesh.dimension == 2 else "volume"
+    if not mesh.total_measure > 0:
+        warnings.warn(MeshWarning(f"the cells have no {word} (total {mesh.total_measure:g}); measure refuses "
+                                  "this mesh", where=first.info.where), stacklevel=3)
     sizes = mesh.cell_sizes
     desc = {
         "path": os.fspath(series.path),
         "kind": series.kind,
         "steps": n,
-        "times": [float(t) for t in series.times],
+        "times": [float(t) if np.isfinite(t) else None for t in series.times],
         "time_origin": "+".join(series.time_origins),
         "points": int(mesh.n_points),
         "cells": int(mesh.n_cells),
@@ -72,10 +138,11 @@ def describe_series(path, *, scan: str = "auto") -> dict:
         "inverted_cells": int(mesh.inverted_cells),
         "degenerate_cells": int(mesh.degenerate_cells),
         "mesh_changes": len(meshes) > 1,
-        "scanned_steps": indices,
+        "scanned_steps": scanned,
         "fields": [stats[k] for k in sorted(stats)],
+        "unreadable_steps": [err.one_line() for err in errors],
+        "_errors": errors,
     }
-    series.close()
     return desc
 
 
@@ -103,7 +170,7 @@ def _accumulate(stats: dict, name: str, location: str, values: np.ndarray) -> No
 
 def format_description(desc: dict) -> str:
     """Human-readable text of :func:`describe_series`."""
-    times = desc["times"]
+    times = [t for t in desc["times"] if t is not None]
     lines = [f"series      {desc['path']} ({desc['kind']})",
              f"steps       {desc['steps']}"
              + (f", time {times[0]:g} to {times[-1]:g}" if times else "")
@@ -125,6 +192,10 @@ def format_description(desc: dict) -> str:
     if desc["inverted_cells"] or desc["degenerate_cells"]:
         lines.append(f"warning     {desc['inverted_cells']} inverted and {desc['degenerate_cells']} "
                      "zero-size cells")
+    if desc.get("unreadable_steps"):
+        places = [text.split(": ", 1)[0] for text in desc["unreadable_steps"]]
+        lines.append(f"unreadable  {len(places)} step(s): " + "; ".join(places[:5])
+                     + (" ..." if len(places) > 5 else "") + " (reasons on stderr and in --json)")
     scanned = desc["scanned_steps"]
     label = "all steps" if len(scanned) == desc["steps"] else "steps " + ", ".join(map(str, scanned))
     lines.append(f"fields      ({label})")

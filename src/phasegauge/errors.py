@@ -32,6 +32,9 @@ __all__ = [
     "NonFiniteWarning",
     "SkippedStepWarning",
     "ResolutionWarning",
+    "SeriesWarning",
+    "MeshWarning",
+    "collapse_warnings",
 ]
 
 
@@ -71,6 +74,14 @@ class PhasegaugeError(Exception):
         if self.where:
             return self
         return type(self)(self.what, where=where, fix=self.fix)
+
+    def at(self, where: str) -> "PhasegaugeError":
+        """Return a copy of this error with ``where`` replaced (for example by the file and step)."""
+        return type(self)(self.what, where=where, fix=self.fix)
+
+    def with_fix(self, fix: str) -> "PhasegaugeError":
+        """Return a copy of this error with ``fix`` replaced."""
+        return type(self)(self.what, where=self.where, fix=fix)
 
     def __reduce__(self):
         return (_rebuild, (type(self), self.what, self.where, self.fix))
@@ -126,7 +137,31 @@ class AnalysisError(PhasegaugeError, RuntimeError):
 
 
 class PhasegaugeWarning(UserWarning):
-    """Root of phasegauge warnings."""
+    """Root of phasegauge warnings.
+
+    Parameters
+    ----------
+    what : str
+        What was found (one line).
+    where : str, optional
+        The file and step concerned; kept apart so that a warning repeated over
+        many steps can be reported once (:func:`collapse_warnings`).
+    """
+
+    def __init__(self, what: str = "", where: str = ""):
+        self.what = " ".join(str(what).split())
+        self.where = str(where)
+        super().__init__(self.one_line())
+
+    def one_line(self) -> str:
+        """The message as one line: ``where: what``."""
+        return f"{self.where}: {self.what}" if self.where else self.what
+
+    def __reduce__(self):
+        return (type(self), (self.what, self.where))
+
+    def __str__(self) -> str:
+        return self.one_line()
 
 
 class RangeWarning(PhasegaugeWarning):
@@ -143,3 +178,47 @@ class SkippedStepWarning(PhasegaugeWarning):
 
 class ResolutionWarning(PhasegaugeWarning):
     """The interface or a droplet is resolved by too few cells."""
+
+
+class SeriesWarning(PhasegaugeWarning):
+    """The series looks irregular (gaps in the file numbering, a mesh that changes)."""
+
+
+class MeshWarning(PhasegaugeWarning):
+    """The mesh has inverted or zero-size cells, or duplicate points that were merged."""
+
+
+def collapse_warnings(records) -> list:
+    """Collapse warnings repeated over steps into one line each.
+
+    Parameters
+    ----------
+    records : iterable of (category, what, where)
+        ``category`` a warning class, ``what`` the text without the place,
+        ``where`` the file and step.
+
+    Returns
+    -------
+    list of (category, str)
+        One entry per kind of warning (same class and same text once its
+        numbers are masked), in order of first appearance: the first
+        occurrence's text, with the number of further steps it appeared in.
+    """
+    import re
+
+    groups: dict = {}
+    for category, what, where in records:
+        key = (category, re.sub(r"[-+]?(\d+\.?\d*|\.\d+)([eE][-+]?\d+)?", "#", what))
+        entry = groups.get(key)
+        if entry is None:
+            groups[key] = [category, what, where, set()]
+        else:
+            entry[3].add(where)
+    out = []
+    for category, what, where, more in groups.values():
+        more.discard(where)
+        text = f"{where}: {what}" if where else what
+        if more:
+            text += f" (and {len(more)} more step{'s' if len(more) > 1 else ''})"
+        out.append((category, text))
+    return out

@@ -204,9 +204,8 @@ def make_indicator(mesh: Mesh, fields, name: str, *, value_range=(0.0, 1.0), pha
     finite = np.isfinite(values)
     nonfinite = int(values.size - np.count_nonzero(finite))
     if warn and nonfinite:
-        label = f"{where}: " if where else ""
-        warnings.warn(f"{label}field '{name}' has {nonfinite} NaN or Inf values; they are left out of "
-                      "every integral", NonFiniteWarning, stacklevel=2)
+        warnings.warn(NonFiniteWarning(f"field '{name}' has {nonfinite} NaN or Inf values; they are left "
+                                       "out of every integral", where=where), stacklevel=2)
     if warn and nonfinite < values.size:
         check_range(values[finite], value_range, name=name, where=where)
     c = map_to_indicator(values, value_range, phase)
@@ -224,11 +223,10 @@ def check_range(values: np.ndarray, value_range, *, name: str = "", where: str =
     vmin, vmax = float(values.min()), float(values.max())
     span = hi - lo
     if vmin < lo - 0.1 * span or vmax > hi + 0.1 * span:
-        label = f"{where}: " if where else ""
-        warnings.warn(
-            f"{label}field '{name}' spans [{vmin:.4g}, {vmax:.4g}] but the range is [{lo:g}, {hi:g}]; "
-            f"give the field's own range (for example --range {_round_range(vmin, vmax)})",
-            RangeWarning, stacklevel=3)
+        warnings.warn(RangeWarning(
+            f"field '{name}' spans [{vmin:.4g}, {vmax:.4g}] but the range is [{lo:g}, {hi:g}]; "
+            f"give the field's own range (for example --range {_round_range(vmin, vmax)})", where=where),
+            stacklevel=3)
 
 
 def _round_range(vmin: float, vmax: float) -> str:

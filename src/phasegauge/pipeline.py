@@ -29,7 +29,9 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
-from .errors import InputError, OptionError, PhasegaugeError, SkippedStepWarning
+from .errors import (AnalysisError, FieldNotFoundError, FieldShapeError, InputError, InputFileNotFound,
+                     MeshWarning, OptionError, PhasegaugeError, PhasegaugeWarning, SeriesError, SeriesWarning,
+                     SkippedStepWarning, UnsupportedMeshError, collapse_warnings)
 from .indicator import make_indicator, normalize_phase, parse_range
 
 __all__ = ["MeasureOptions", "StepResult", "MeasureResult", "measure", "run_step", "ANALYSES"]
@@ -189,6 +191,9 @@ class StepResult:
     seconds: float = 0.0
     file_sha256: str = ""
     reused: bool = False
+    error: PhasegaugeError | None = None  # why the step was skipped
+    warning_records: list = field(default_factory=list)  # (category, what, where) of the step's warnings
+    dimension: int = 0
 
     def labels(self, n_cells: int) -> tuple[np.ndarray, np.ndarray]:
         """Droplet label of every cell (-1: none) and the c dV weights of the labelled cells."""
@@ -220,6 +225,8 @@ class MeasureResult:
         Findings the report puts first (widening interface, drift, overshoot...).
     skipped : list of str
         Steps left out, with the reason.
+    warnings : list of str
+        Warnings of the run, each once (repeats over steps collapsed).
     """
 
     steps: object
@@ -232,6 +239,7 @@ class MeasureResult:
     options: MeasureOptions
     results: list = field(default_factory=list, repr=False)
     mesh: object = field(default=None, repr=False)  # mesh of the last step (for drawing)
+    warnings: list = field(default_factory=list)
 
 
 # ------------------------------------------------------------------ per step
@@ -247,7 +255,9 @@ def _open(path):
             for s in _SERIES.values():
                 s.close()
             _SERIES.clear()
-        series = Series(path)
+        with warnings.catch_warnings():  # the series' own warnings are reported once, by measure()
+            warnings.simplefilter("ignore", PhasegaugeWarning)
+            series = Series(path)
         _SERIES[path] = series
     return series
 
@@ -256,6 +266,28 @@ def _step_file_hash(info) -> str:
     from .report._files import sha256_of
 
     return sha256_of(info.path)
+
+
+def _data_stamp(info) -> str:
+    """Size and modification time of the HDF5 files an XDMF step reads ('' for other steps).
+
+    Part of the cache key, so that rewritten HDF5 data is not taken from the
+    cache (hashing the HDF5 files whole would cost as much as reading them).
+    """
+    if info.grid is None:
+        return ""
+    from .io._meshio_adapter import _hdf5_names
+
+    folder = os.path.dirname(os.path.abspath(info.path))
+    stamps = []
+    for name in _hdf5_names(info.path):
+        full = name if os.path.isabs(name) else os.path.join(folder, name)
+        try:
+            st = os.stat(full)
+            stamps.append(f"{name}:{st.st_size}:{st.st_mtime_ns}")
+        except OSError:
+            stamps.append(f"{name}:missing")
+    return "|".join(stamps)
 
 
 def _cache_file(cache_dir: str, index: int, key: str) -> str:
@@ -269,15 +301,16 @@ def run_step(path, index: int, options: MeasureOptions, *, cache_dir: str | None
     This is the unit of parallel work: it takes a path, not arrays. With
     ``cache_dir``, a result cached for the same file content and options is
     returned without recomputing, and a new result is cached atomically.
-    A step that cannot be read or analysed returns a result with ``skipped``
-    set, unless ``options.strict``.
+    A step whose input is bad (:data:`STEP_ERRORS`) returns a result with
+    ``skipped`` and ``error`` set, unless ``options.strict``; a failure inside
+    the tool raises :class:`AnalysisError` naming the step.
     """
     series = _open(os.fspath(path))
     info = series.steps[index]
     digest = ""
-    if cache_dir is not None:
+    if cache_dir is not None and os.path.isfile(info.path):
         digest = _step_file_hash(info)
-        key = hashlib.sha256(f"{digest}|{info.grid}|{options.key()}".encode()).hexdigest()[:20]
+        key = hashlib.sha256(f"{digest}|{info.grid}|{_data_stamp(info)}|{options.key()}".encode()).hexdigest()[:20]
         cached = _cache_file(cache_dir, index, key)
         if os.path.exists(cached):
             try:
@@ -289,26 +322,76 @@ def run_step(path, index: int, options: MeasureOptions, *, cache_dir: str | None
                 return result
             except Exception:  # a damaged cache entry is recomputed
                 pass
+    else:
+        cache_dir = None  # a missing step file: nothing to key a cache entry by
     start = time.perf_counter()
     with warnings.catch_warnings(record=True) as caught:
         warnings.simplefilter("always")
         try:
             step = series.read(index)
             result = analyse_step(step, options, contour_dir=contour_dir)
-        except InputError as err:
+        except STEP_ERRORS as err:
+            err = err.at(info.where)
             if options.strict:
-                raise err.with_where(info.where) from None
-            result = StepResult(index, info.time, info.path, skipped=err.with_where(info.where).one_line())
-    result.messages = [str(w.message) for w in caught]
+                raise err from None
+            result = StepResult(index, info.time, info.path, skipped=err.one_line(), error=err)
+        except PhasegaugeError:
+            raise
+        except Exception as exc:  # a failure inside the tool: name the step, keep the cause for --debug
+            raise AnalysisError(f"{type(exc).__name__}: {_short(exc)}", where=info.where,
+                                fix="rerun with --debug for the traceback and report it") from exc
+    if result.skipped is None:  # a skipped step's warnings are about what made it fail
+        result.warning_records = [(w.category, getattr(w.message, "what", str(w.message)), info.where)
+                                  for w in caught if issubclass(w.category, PhasegaugeWarning)]
+    result.messages = [f"{where}: {what}" for _, what, where in result.warning_records]
     result.seconds = time.perf_counter() - start
     result.file_sha256 = digest
-    if cache_dir is not None:
+    if cache_dir is not None and result.skipped is None:  # a bad step is tried again on resume
         from .report._files import atomic_write_bytes
 
         atomic_write_bytes(cached, pickle.dumps(result, protocol=pickle.HIGHEST_PROTOCOL))
     if not keep_contour:
         result.contour = None
     return result
+
+
+#: errors of one step's input: the step is skipped with a warning (or, with ``strict``, the run stops)
+STEP_ERRORS = (InputError, FieldNotFoundError, InputFileNotFound)
+
+
+def _short(exc: BaseException) -> str:
+    text = " ".join(str(exc).split()) or type(exc).__name__
+    return text if len(text) <= 160 else text[:157] + "..."
+
+
+def _wrong_field_option(err) -> bool:
+    """True for an error that says the chosen field itself is wrong (not this step's file)."""
+    return isinstance(err, FieldNotFoundError) or (isinstance(err, FieldShapeError) and "component" in err.what)
+
+
+def _check_mesh(mesh, where: str) -> None:
+    """Refuse a mesh without volume; warn once per mesh about inverted and zero-size cells."""
+    total = mesh.total_measure
+    word = "area" if mesh.dimension == 2 else "volume"
+    if not np.isfinite(total) or total <= 0:
+        raise UnsupportedMeshError(f"the cells have no {word} (total {total:g}): the points coincide or are not "
+                                   "finite", where=where, fix="the file is damaged or the mesh collapsed; "
+                                   "write the step again")
+    if getattr(mesh, "_quality_warned", False):
+        return
+    mesh._quality_warned = True
+    inverted, degenerate = mesh.inverted_cells, mesh.degenerate_cells
+    if inverted:
+        warnings.warn(MeshWarning(f"{_cells(inverted)} inverted (corners in the opposite order to the rest); "
+                                  f"the magnitude of their {word} is used", where=where), stacklevel=3)
+    if degenerate:
+        text = (f"1 cell has zero {word}; it carries" if degenerate == 1 else
+                f"{degenerate} cells have zero {word}; they carry")
+        warnings.warn(MeshWarning(f"{text} no phase volume", where=where), stacklevel=3)
+
+
+def _cells(count: int) -> str:
+    return "1 cell is" if count == 1 else f"{count} cells are"
 
 
 def _velocity(step, options):
@@ -353,10 +436,12 @@ def analyse_step(step, options: MeasureOptions, *, contour_dir: str | None = Non
     ind = make_indicator(mesh, step.fields, options.field, value_range=options.value_range,
                          phase=options.phase, where=step.info.where)
     if ind.nonfinite == ind.cell.size or not np.isfinite(ind.cell).any():
-        raise InputError(f"field '{options.field}' has no finite values", where=step.info.where,
+        raise InputError(f"field '{options.field}' has no finite values (all NaN or Inf)", where=step.info.where,
                          fix="the solver may have diverged at this step")
+    _check_mesh(mesh, step.info.where)
     u_cell, u_point = _velocity(step, options)
-    result = StepResult(step.index, step.time, step.info.path, mesh_signature=mesh.signature)
+    result = StepResult(step.index, step.time, step.info.path, mesh_signature=mesh.signature,
+                        dimension=int(mesh.dimension))
     m = {"step": step.index, "time": step.time}
     if "conservation" in options.analyses:
         m.update(conservation.conservation_metrics(mesh, ind, densities=options.densities))
@@ -506,9 +591,28 @@ def measure(path, field: str | None = None, *, options: MeasureOptions | None = 
     Returns
     -------
     MeasureResult
+
+    Raises
+    ------
+    PhasegaugeError
+        Bad options or output folder; times that do not increase; the chosen
+        field missing (or not a scalar) at the first step; with
+        ``options.strict`` any bad step; without it, only when no step at all
+        can be analysed (the first step's error, with the count).
+
+    Notes
+    -----
+    Without ``strict``, a step whose input is bad (unreadable or missing
+    file, no finite values, a mesh without volume or of another dimension)
+    is skipped: one :class:`SkippedStepWarning` per kind of failure, and the
+    step is listed in ``MeasureResult.skipped``, the report and the manifest.
+    Other warnings (range, NaN values, mesh quality, gaps in the file
+    numbering) are issued once per kind, not once per step, and become flags.
+    With ``out``, a run that fails puts back the outputs ``overwrite`` had set
+    aside, and removes a new folder unless it holds finished steps (see
+    :func:`phasegauge.report._files.output_transaction`).
     """
     from .io import Series
-    from .progress import Progress
 
     if options is None:
         if field is None:
@@ -520,9 +624,35 @@ def measure(path, field: str | None = None, *, options: MeasureOptions | None = 
     if workers < 1:
         raise OptionError(f"workers must be at least 1, found {workers}", fix="for example --workers 2")
     path = os.fspath(path)
-    series = Series(path)
+    with warnings.catch_warnings(record=True) as caught:
+        warnings.simplefilter("always")
+        series = Series(path)
+    notes = _records(caught)
+    try:
+        problem = series.time_problem()
+        if problem is not None:
+            raise problem
+        from .report._files import output_transaction
+
+        with output_transaction(out) as txn:
+            return _measure(series, path, options, out, txn, workers=workers, scheduler=scheduler,
+                            overwrite=overwrite, resume=resume, progress=progress,
+                            write_contours=write_contours, snapshots=snapshots, notes=notes)
+    finally:
+        series.close()
+
+
+def _records(caught) -> list:
+    """(category, what, where) of the phasegauge warnings among ``caught``."""
+    return [(w.category, getattr(w.message, "what", str(w.message)), getattr(w.message, "where", ""))
+            for w in caught if issubclass(w.category, PhasegaugeWarning)]
+
+
+def _measure(series, path, options, out, txn, *, workers, scheduler, overwrite, resume, progress,
+             write_contours, snapshots, notes) -> MeasureResult:
+    from .progress import Progress
+
     n = len(series)
-    _check_times(series)
     started = time.time()
     cache_dir = contour_dir = None
     if out is not None:
@@ -532,58 +662,94 @@ def measure(path, field: str | None = None, *, options: MeasureOptions | None = 
         prepare_output_folder(out, overwrite=overwrite, resume=resume, run_key=run_key)
         cache_dir = os.path.join(os.fspath(out), ".cache")
         os.makedirs(cache_dir, exist_ok=True)
+        txn.worth_keeping = lambda: any(f.startswith("step_") and f.endswith(".pkl") for f in os.listdir(cache_dir))
         if write_contours and "interface" in options.analyses:
             contour_dir = os.path.join(os.fspath(out), "contours")
             os.makedirs(contour_dir, exist_ok=True)
     keep = _snapshot_steps(n, snapshots)
     bar = Progress(n, "steps", enabled=progress)
-    indices = list(range(n))
-    if scheduler:
-        results = _run_dask(path, indices, options, scheduler, cache_dir, contour_dir, keep, bar)
-    elif workers > 1 and n > 1:
-        results = _run_local(path, indices, options, min(workers, n), cache_dir, contour_dir, keep, bar)
+    # the first step runs here, before any other: a field name that is wrong stops the run at once
+    first = run_step(path, 0, options, cache_dir=cache_dir, contour_dir=contour_dir, keep_contour=0 in keep)
+    bar.update(reused=first.reused)
+    if first.error is not None and _wrong_field_option(first.error):
+        raise first.error
+    rest = list(range(1, n))
+    if rest and (scheduler or workers > 1):
+        _close_open_series()  # workers open their own files (HDF5 handles do not cross a fork)
+    if not rest:
+        results = []
+    elif scheduler:
+        results = _run_dask(path, rest, options, scheduler, cache_dir, contour_dir, keep, bar)
+    elif workers > 1:
+        results = _run_local(path, rest, options, min(workers, len(rest)), cache_dir, contour_dir, keep, bar)
     else:
         results = []
-        for i in indices:
+        for i in rest:
             res = run_step(path, i, options, cache_dir=cache_dir, contour_dir=contour_dir, keep_contour=i in keep)
             results.append(res)
             bar.update(reused=res.reused)
     bar.close()
-    result = assemble(series, results, options)
+    result = assemble(series, [first] + results, options, notes=notes)
     if out is not None:
         from .report import write_measure_report
 
         write_measure_report(out, result, series=series, started=started,
                              execution={"workers": workers, "scheduler": scheduler, "resume": resume})
-    series.close()
     return result
 
 
-def _check_times(series) -> None:
-    times = series.times
-    if len(times) > 1 and np.any(np.diff(times) <= 0):
-        bad = int(np.nonzero(np.diff(times) <= 0)[0][0]) + 1
-        info = series.steps[bad]
-        from .errors import SeriesError
-
-        raise SeriesError(f"times do not increase: step {bad} has time {times[bad]:g} after "
-                          f"{times[bad - 1]:g}", where=info.where,
-                          fix="remove duplicated or out-of-order steps, or give a 'time,path' listing")
+def _close_open_series() -> None:
+    for s in _SERIES.values():
+        s.close()
+    _SERIES.clear()
 
 
-def assemble(series, results: list, options: MeasureOptions) -> MeasureResult:
-    """Series-level work over the ordered step results: tables, tracking, drift, audit, flags."""
+def _no_step_error(results: list) -> PhasegaugeError:
+    """The error of a run where no step could be analysed: the first step's, with the count."""
+    errors = [r.error for r in results if r.error is not None]
+    if not errors:
+        return InputError("no step could be analysed", where=results[0].path if results else "",
+                          fix="check the input with 'phasegauge inspect'")
+    first = errors[0]
+    if len(results) == 1:
+        return first
+    what = f"{first.what} (no step could be analysed: all {len(results)} failed; this is the first)"
+    return type(first)(what, where=first.where, fix=first.fix)
+
+
+def assemble(series, results: list, options: MeasureOptions, *, notes=()) -> MeasureResult:
+    """Series-level work over the ordered step results: tables, tracking, drift, audit, flags.
+
+    Steps whose mesh dimension differs from the first analysed step's are
+    skipped (with ``strict``: refused). Warnings of the steps and of the series
+    (``notes``: (category, what, where) records) are reported once per kind.
+    """
     import pandas as pd
 
     from .analysis import conservation
 
     done = [r for r in results if r.skipped is None]
-    skipped = [r.skipped for r in results if r.skipped is not None]
-    for text in skipped:
-        warnings.warn(f"step skipped: {text}", SkippedStepWarning, stacklevel=2)
     if not done:
-        raise InputError("no step could be analysed", where=os.fspath(series.path),
-                         fix="see the warnings above for each step")
+        raise _no_step_error(results)
+    for r in done[1:]:
+        if r.dimension and done[0].dimension and r.dimension != done[0].dimension:
+            info = series.steps[r.index]
+            err = SeriesError(f"the mesh is {r.dimension}D but at step {done[0].index} it is {done[0].dimension}D",
+                              where=info.where, fix="a series keeps one dimension: give each case's steps apart")
+            if options.strict:
+                raise err
+            r.skipped, r.error, r.warning_records = err.one_line(), err, []
+    done = [r for r in results if r.skipped is None]
+    skipped = [r.skipped for r in results if r.skipped is not None]
+    records = list(notes) + _mesh_change_records(series, done)
+    records += [(SkippedStepWarning, f"step skipped: {r.error.what}; {r.error.fix}", r.error.where)
+                if r.error is not None else (SkippedStepWarning, f"step skipped: {r.skipped}", "")
+                for r in results if r.skipped is not None]
+    records += [rec for r in done for rec in getattr(r, "warning_records", [])]  # (older caches lack them)
+    summary = collapse_warnings(records)
+    for category, text in summary:
+        warnings.warn(category(text), stacklevel=2)
+    findings = [text for category, text in summary if not issubclass(category, SkippedStepWarning)]
     steps = pd.DataFrame([r.metrics for r in done])
     if "phase_volume" in steps:
         steps = conservation.drift_columns(steps)
@@ -602,10 +768,26 @@ def assemble(series, results: list, options: MeasureOptions) -> MeasureResult:
 
         audit = diffusion_audit(steps["time"].to_numpy(), steps["interface_variance"].to_numpy(),
                                 physical_diffusivity=options.diffusivity)
-    flags = _flags(steps, droplets, audit, options, skipped)
-    mesh = series.read_mesh(done[-1].index) if any(r.contour is not None for r in done) else None
+    flags = _flags(steps, droplets, audit, options, skipped) + findings
+    mesh = None
+    if any(r.contour is not None for r in done):
+        with warnings.catch_warnings():  # reported above, from the steps
+            warnings.simplefilter("ignore", PhasegaugeWarning)
+            mesh = series.read_mesh(done[-1].index)
     return MeasureResult(steps=steps, droplets=droplets, events=events, profiles=profiles, audit=audit,
-                         flags=flags, skipped=skipped, options=options, results=results, mesh=mesh)
+                         flags=flags, skipped=skipped, options=options, results=results, mesh=mesh,
+                         warnings=[text for _, text in summary])
+
+
+def _mesh_change_records(series, done) -> list:
+    """A series note when the mesh changes between analysed steps."""
+    changes = [b.index for a, b in zip(done[:-1], done[1:]) if a.mesh_signature != b.mesh_signature]
+    if not changes:
+        return []
+    count = len({r.mesh_signature for r in done})
+    at = ", ".join(str(i) for i in changes[:5]) + (" ..." if len(changes) > 5 else "")
+    return [(SeriesWarning, f"the mesh changes between steps (at step {at}; {count} meshes): phase-volume drift "
+                            "across a change includes any remapping of the solution", os.fspath(series.path))]
 
 
 def _track(series, done, options):
@@ -616,7 +798,9 @@ def _track(series, done, options):
     for r in done:
         mesh = meshes.get(r.mesh_signature)
         if mesh is None:
-            mesh = series.read(r.index).mesh
+            with warnings.catch_warnings():  # reported once, from the steps
+                warnings.simplefilter("ignore", PhasegaugeWarning)
+                mesh = series.read(r.index).mesh
             meshes = {r.mesh_signature: mesh}
         labels, weights = r.labels(mesh.n_cells)
         tracker.add(r.index, r.time, mesh, labels, r.droplets, weights=weights)

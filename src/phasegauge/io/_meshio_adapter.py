@@ -16,7 +16,7 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
-from ..errors import (FieldShapeError, InputFileNotFound, UnreadableFileError,
+from ..errors import (FieldShapeError, InputFileNotFound, MeshWarning, UnreadableFileError,
                       UnsupportedMeshError)
 from ..mesh import Mesh
 
@@ -92,13 +92,10 @@ def read_meshio(path: str):
             return meshio._helpers.reader_map[fmt](path)
     except MemoryError:
         raise
-    except Exception as exc:  # meshio raises many kinds; all mean the same to the user
+    except Exception as exc:  # meshio raises many kinds: say what is wrong with the file
         if fmt == "vtk" and _legacy_structured(path):
             return _read_with_vtk(path)
-        raise UnreadableFileError(
-            f"cannot be read as a mesh ({_short(exc)})", where=path,
-            fix="check that the file is complete VTK (.vtu, .vtk) or XDMF and was fully written"
-        ) from None
+        raise diagnose_read_failure(path, fmt, exc) from None
 
 
 def _legacy_structured(path: str) -> bool:
@@ -108,7 +105,34 @@ def _legacy_structured(path: str) -> bool:
             head = handle.read(1024).upper()
     except OSError:
         return False
-    return any(k in head for k in (b"STRUCTURED_POINTS", b"STRUCTURED_GRID", b"RECTILINEAR_GRID"))
+    import re
+
+    return re.search(rb"\nDATASET\s+(STRUCTURED_POINTS|STRUCTURED_GRID|RECTILINEAR_GRID)\b", head) is not None
+
+
+def _check_structured_sizes(data, path: str) -> None:
+    """Refuse a structured dataset whose arrays do not fit its dimensions (a truncated file).
+
+    VTK's readers hand a truncated file over with short arrays, and building cells from them can
+    crash the process, so the sizes are checked before anything else touches the data.
+    """
+    dims = getattr(data, "dimensions", None)
+    expected = int(np.prod(dims)) if dims is not None else data.n_points
+    sizes = {"points": data.n_points}
+    if hasattr(data, "points") and type(data).__name__ == "StructuredGrid":
+        sizes["points"] = len(data.points)
+    for name in data.point_data.keys():
+        sizes[f"point field '{name}'"] = len(data.point_data[name])
+    bad = {k: v for k, v in sizes.items() if v != expected}
+    cells = int(np.prod([max(d - 1, 1) for d in dims])) if dims is not None else data.n_cells
+    bad.update({f"cell field '{n}'": len(data.cell_data[n]) for n in data.cell_data.keys()
+                if len(data.cell_data[n]) != cells})
+    if bad or expected == 0:
+        what = ", ".join(f"{k} has {v}" for k, v in bad.items()) or "no points"
+        raise UnreadableFileError(f"the structured dataset does not fit its dimensions {tuple(dims or ())} "
+                                  f"({what}), so it is truncated", where=path,
+                                  fix="the solver may have stopped while writing it: write the step again or "
+                                      "remove it from the series")
 
 
 def _read_with_vtk(path: str):
@@ -116,11 +140,22 @@ def _read_with_vtk(path: str):
     try:
         import pyvista
 
-        with warnings.catch_warnings():
+        catcher = pyvista.VtkErrorCatcher(raise_errors=False)
+        with warnings.catch_warnings(), catcher, contextlib.redirect_stderr(io.StringIO()):
             warnings.simplefilter("ignore")
             data = pyvista.read(path)
+        if catcher.events:  # VTK reports a damaged or short file and hands over what it got
+            first = catcher.events[0].alert.splitlines()[-1].strip()
+            raise UnreadableFileError(f"VTK's reader reports the data is damaged or ends early ({first})",
+                                      where=path, fix="the solver may have stopped while writing it: write the "
+                                                      "step again or remove it from the series")
+        with warnings.catch_warnings():
+            warnings.simplefilter("ignore")
+            _check_structured_sizes(data, path)
             grid = data.cast_to_unstructured_grid()
             raw = pyvista.to_meshio(grid)
+    except UnreadableFileError:
+        raise
     except Exception as exc:
         raise UnreadableFileError(
             f"cannot be read as a structured VTK dataset ({_short(exc)})", where=path,
@@ -135,6 +170,106 @@ def _read_with_vtk(path: str):
 def _short(exc: BaseException) -> str:
     text = " ".join(str(exc).split()) or type(exc).__name__
     return text if len(text) <= 120 else text[:117] + "..."
+
+
+_STOPPED = "the solver may have stopped while writing it: write the step again or remove it from the series"
+
+
+def diagnose_read_failure(path: str, fmt: str, exc: BaseException):
+    """The error to raise when meshio failed on ``path``: what is wrong, in the user's terms.
+
+    Looks at the file only after the reader failed: HDF5 files an XDMF file
+    names (missing, truncated), XML that ends early (a truncated ``.vtu`` or
+    ``.xdmf``), a legacy VTK header, or content that is no mesh at all.
+    """
+    hdf5 = hdf5_problem(exc, path)
+    if hdf5 is not None:
+        return hdf5
+    with open(path, "rb") as handle:
+        head = handle.read(512)
+    start = _printable_start(head)
+    if fmt in ("vtu", "xdmf"):
+        if not head.lstrip(b"\xef\xbb\xbf \t\r\n").startswith(b"<"):
+            fix = ("rename it to .vtk" if head.startswith(b"# vtk DataFile") else
+                   "give a file written by a VTK or XDMF writer")
+            kind = "a VTK XML file (.vtu)" if fmt == "vtu" else "an XDMF file"
+            return UnreadableFileError(f"cannot be read as a mesh: not {kind}, it starts with {start!r}", where=path,
+                                       fix=fix)
+        problem = _xml_problem(path)
+        if problem is not None:
+            return UnreadableFileError(f"cannot be read as a mesh: {problem}", where=path, fix=_STOPPED)
+        return UnreadableFileError(f"cannot be read as a mesh: the XML is complete but its data is not ({_short(exc)})",
+                                   where=path, fix="write the file again with a VTK or XDMF writer")
+    if fmt == "vtk":
+        if not head.startswith(b"# vtk DataFile"):
+            fix = ("rename it to .vtu" if head.lstrip().startswith(b"<") else
+                   "give a file written by a VTK writer")
+            return UnreadableFileError(f"cannot be read as a mesh: not a legacy VTK file, it starts with {start!r}",
+                                       where=path, fix=fix)
+        return UnreadableFileError(f"cannot be read as a mesh: the VTK data ends early or is damaged ({_short(exc)})",
+                                   where=path, fix=_STOPPED)
+    return UnreadableFileError(f"cannot be read as a mesh ({_short(exc)})", where=path,
+                               fix="check that the file is complete VTK (.vtu, .vtk) or XDMF")
+
+
+def _printable_start(head: bytes, size: int = 32) -> str:
+    text = head[:size].decode("utf-8", errors="replace")
+    text = "".join(ch if ch.isprintable() else " " for ch in text)
+    return " ".join(text.split())
+
+
+def _xml_problem(path: str) -> str | None:
+    """Why the XML of ``path`` does not parse (None when it parses)."""
+    import xml.etree.ElementTree as ET
+
+    size = os.path.getsize(path)
+    try:
+        for _ in ET.iterparse(path, events=("end",)):
+            pass
+    except ET.ParseError as exc:
+        line, column = exc.position
+        text = str(exc).split(":")[0]
+        if text in ("no element found", "unclosed token") or "unclosed" in text:
+            return f"the file ends before its XML is complete (line {line}, {size} bytes), so it is truncated"
+        return f"the XML is damaged at line {line}, column {column} ({text})"
+    return None
+
+
+def hdf5_problem(exc: BaseException, xdmf_path: str):
+    """An error naming the HDF5 file behind ``exc`` (missing or truncated), or None."""
+    text = " ".join(str(exc).split())
+    if "unable to open file" not in text.lower() and "truncated file" not in text.lower():
+        return None
+    import re
+
+    xdmf = os.path.basename(xdmf_path)
+    match = re.search(r"name = '([^']+)'", text)
+    if match:
+        name = os.path.basename(match.group(1))
+    else:
+        names = _hdf5_names(xdmf_path)
+        name = names[0] if len(names) == 1 else "an HDF5 file it names"
+    if isinstance(exc, FileNotFoundError) or "No such file" in text:
+        return InputFileNotFound(f"the HDF5 file '{name}' that {xdmf} names is missing", where=xdmf_path,
+                                 fix=f"put {name} back next to {xdmf} (the XDMF file holds only the layout; "
+                                     "the numbers are in the HDF5 file)")
+    sizes = re.search(r"eof = (\d+).*stored_eof = (\d+)", text)
+    detail = f" ({sizes.group(1)} of {sizes.group(2)} bytes)" if sizes else ""
+    if "truncated" in text.lower():
+        return UnreadableFileError(f"the HDF5 file '{name}' is truncated{detail}", where=xdmf_path, fix=_STOPPED)
+    return UnreadableFileError(f"the HDF5 file '{name}' cannot be opened ({_short(exc)})", where=xdmf_path,
+                               fix=f"check {name}: it may be damaged or still being written")
+
+
+def _hdf5_names(xdmf_path: str) -> list:
+    import re
+
+    try:
+        with open(xdmf_path, encoding="utf-8", errors="replace") as handle:
+            text = handle.read(1 << 20)
+    except OSError:
+        return []
+    return sorted(set(re.findall(r">\s*([^<>:\s]+\.(?:h5|hdf5|hdf))\s*:", text)))
 
 
 def join_cell_data(mesh: Mesh, cell_data: dict, where: str = "") -> dict:
@@ -153,20 +288,91 @@ def join_cell_data(mesh: Mesh, cell_data: dict, where: str = "") -> dict:
 
 
 def mesh_and_fields(raw, path: str, previous: Mesh | None = None) -> tuple[Mesh, StepFields]:
-    """Turn a meshio mesh into a :class:`Mesh` (reusing ``previous`` when equal) and fields."""
+    """Turn a meshio mesh into a :class:`Mesh` (reusing ``previous`` when equal) and fields.
+
+    A new mesh is checked once: point coordinates must be finite, and points
+    that coincide exactly (files that store the corners of every cell apart)
+    are merged, with their point data averaged, so that neighbouring cells
+    share their corners (:class:`MeshWarning`).
+    """
     try:
         candidate = Mesh(raw.points, raw.cells)
     except UnsupportedMeshError as err:
         raise err.with_where(path) from None
-    mesh = candidate
     if previous is not None and previous.n_points == candidate.n_points and previous.same_topology(
             candidate.points, candidate.blocks):
         mesh = previous
-    point_data = {k: np.asarray(v) for k, v in raw.point_data.items()}
-    for name, values in point_data.items():
-        if values.shape[0] != mesh.n_points:
-            raise FieldShapeError(f"point field '{name}' has {values.shape[0]} values for "
-                                  f"{mesh.n_points} points", where=path, fix="the file is damaged; rewrite it")
+    else:
+        mesh = _checked_mesh(candidate, raw, path)
+        if mesh is not candidate and previous is not None and previous.n_points == mesh.n_points \
+                and previous.same_topology(mesh.points, mesh.blocks):
+            mesh = previous
+    point_data = point_fields(mesh, raw.point_data, where=path)
     cell_data = join_cell_data(mesh, raw.cell_data, where=path)
     field_data = {k: np.asarray(v) for k, v in (raw.field_data or {}).items()}
     return mesh, StepFields(point_data, cell_data, field_data)
+
+
+def point_fields(mesh: Mesh, point_data: dict, where: str = "") -> dict:
+    """Point data of a step on the points of ``mesh`` (averaged over merged duplicate points)."""
+    merge = getattr(mesh, "_point_merge", None)
+    n_source = mesh.n_points if merge is None else merge.size
+    out = {}
+    for name, values in point_data.items():
+        values = np.asarray(values)
+        if values.shape[0] != n_source:
+            raise FieldShapeError(f"point field '{name}' has {values.shape[0]} values for "
+                                  f"{n_source} points", where=where, fix="the file is damaged; write it again")
+        if merge is not None and np.issubdtype(values.dtype, np.number):
+            values = _average_merged(values, merge, mesh.n_points)
+        out[name] = values
+    return out
+
+
+def _average_merged(values: np.ndarray, merge: np.ndarray, n: int) -> np.ndarray:
+    flat = values.reshape(values.shape[0], -1).astype(np.float64)
+    counts = np.bincount(merge, minlength=n).astype(np.float64)
+    sums = np.stack([np.bincount(merge, weights=flat[:, k], minlength=n) for k in range(flat.shape[1])], axis=1)
+    mean = sums / counts[:, None]
+    return mean.reshape((n,) + values.shape[1:])
+
+
+def _checked_mesh(mesh: Mesh, raw, where: str) -> Mesh:
+    """Check a newly built mesh; merge coincident points."""
+    finite = np.isfinite(mesh.points).all(axis=1)
+    bad = 0 if finite.all() else int(np.count_nonzero(~finite[mesh.used_points]))
+    if bad:
+        raise UnsupportedMeshError(f"{bad} points of the cells have NaN or Inf coordinates", where=where,
+                                   fix="the file is damaged or the mesh motion diverged; write the step again")
+    inverse, n_unique = _coincident_points(mesh.points)
+    if n_unique == mesh.n_points:
+        return mesh
+    blocks = [(b.type, inverse[np.asarray(b.data, dtype=np.int64)]) for b in raw.cells]
+    points = np.zeros((n_unique, 3))
+    points[inverse] = mesh.points
+    merged = Mesh(points, blocks)
+    merged._point_merge = inverse
+    warnings.warn(MeshWarning(f"{mesh.n_points - n_unique} duplicate points merged (cells share their corners "
+                              "now); point fields are averaged over the copies", where=where), stacklevel=3)
+    return merged
+
+
+def _coincident_points(points: np.ndarray) -> tuple[np.ndarray, int]:
+    """Index of each point among the distinct ones (exactly equal coordinates), and their number."""
+    import pandas as pd
+
+    p = np.ascontiguousarray(points + 0.0)  # -0.0 -> 0.0
+    keys = pd.util.hash_pandas_object(pd.DataFrame(p), index=False).to_numpy()
+    inverse, uniques = pd.factorize(keys)
+    if uniques.size == p.shape[0]:
+        return np.arange(p.shape[0]), p.shape[0]
+    first = np.full(uniques.size, -1, dtype=np.int64)
+    first[inverse[::-1]] = np.arange(p.shape[0])[::-1]
+    if not np.array_equal(p[first[inverse]], p):  # a hash collision: fall back to sorting
+        _, inverse = np.unique(p, axis=0, return_inverse=True)
+        inverse = inverse.ravel()
+    # number the distinct points in order of first appearance
+    _, order_first = np.unique(inverse, return_index=True)
+    rank = np.empty(order_first.size, dtype=np.int64)
+    rank[np.argsort(order_first, kind="stable")] = np.arange(order_first.size)
+    return rank[inverse].astype(np.int64), int(order_first.size)

@@ -24,7 +24,8 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from ..errors import (InputFileNotFound, SeriesError, UnreadableFileError)
+from ..errors import (InputFileNotFound, PhasegaugeError, SeriesError, SeriesWarning,
+                      UnreadableFileError)
 from ..mesh import Mesh
 from ._meshio_adapter import MESH_SUFFIXES, StepFields, mesh_and_fields, read_meshio
 
@@ -55,8 +56,9 @@ class StepInfo:
         Position in the series, from 0.
     time : float
         Time of the step, in the solver's time units.
-    time_origin : {'xdmf', 'file', 'listing', 'index'}
-        Where the time came from.
+    time_origin : {'xdmf', 'file', 'listing', 'index', 'unknown'}
+        Where the time came from (``'unknown'``: the file could not be read
+        to find its stored time; ``time`` is NaN and reading the step fails).
     path : str
         The file holding the step.
     grid : int or None
@@ -235,24 +237,30 @@ class Series:
                               where=path,
                                   fix="give a folder of mesh files, a mesh file or a step listing")
             self.kind = "folder"
-            return self._from_files(files)
+            steps = self._from_files(files)
+            _warn_numbering_gaps(files, path, steps)
+            return steps
         if any(ch in path for ch in "*?[") and not os.path.exists(path):
             files = sorted((f for f in globmod.glob(path) if _is_mesh_file(f)), key=natural_key)
             if not files:
                 raise SeriesError("the pattern matches no mesh files", where=path,
                                   fix="check the pattern; quote it so the shell does not expand it")
             self.kind = "glob"
-            return self._from_files(files)
+            steps = self._from_files(files)
+            _warn_numbering_gaps(files, path, steps)
+            return steps
         if not os.path.exists(path):
             raise InputFileNotFound("file not found", where=path,
                                     fix="check the path (quote globs so the shell does not expand them)")
         if path.lower().endswith(LISTING_SUFFIXES):
             self.kind = "listing"
             rows = read_listing(path)
-            for _, file in rows:
-                if not os.path.exists(file):
-                    raise InputFileNotFound("the listing names a file that does not exist",
-                                            where=f"{path} -> {file}", fix="fix the listing line or restore the file")
+            missing = [f for _, f in rows if not os.path.exists(f)]
+            if len(missing) == len(rows):
+                raise InputFileNotFound(
+                    f"none of the {len(rows)} files the listing names exists (the first: {missing[0]})",
+                    where=path, fix="paths in a listing are relative to the listing's folder; fix them or "
+                                    "restore the files")
             return [StepInfo(i, t, "listing", f) for i, (t, f) in enumerate(rows)]
         if path.lower().endswith((".xdmf", ".xmf")):
             grids = _xdmf_collection(path)
@@ -282,7 +290,11 @@ class Series:
         for i, f in enumerate(files):
             t = _peek_time(f)
             if t is _TIME_FROM_FULL_READ:
-                raw = read_meshio(f)
+                try:
+                    raw = read_meshio(f)
+                except PhasegaugeError:  # an unreadable step: its time is unknown; reading it fails later
+                    steps.append(StepInfo(i, float("nan"), "unknown", f))
+                    continue
                 t = _time_from_field_data(raw.field_data)
             if t is None:
                 steps.append(StepInfo(i, float(i), "index", f))
@@ -300,8 +312,27 @@ class Series:
 
     @property
     def times(self) -> np.ndarray:
-        """Times of all steps, shape (n_steps,)."""
+        """Times of all steps, shape (n_steps,) (NaN where unknown)."""
         return np.array([s.time for s in self.steps])
+
+    def time_problem(self) -> SeriesError | None:
+        """The first place where the step times do not increase, as an error (None: they increase).
+
+        Steps whose time is unknown (unreadable files) are left out of the check.
+        """
+        known = [s for s in self.steps if np.isfinite(s.time)]
+        for before, after in zip(known[:-1], known[1:]):
+            if after.time <= before.time:
+                if self.kind == "listing":
+                    fix = f"correct the times in {os.path.basename(self.path)} or remove the repeated step"
+                elif self.kind == "collection":
+                    fix = "remove the repeated or out-of-order grids (a restart may have written them twice)"
+                else:
+                    fix = ("remove duplicated or out-of-order steps (a restart may have written them twice), "
+                           "or give a 'time,path' listing")
+                return SeriesError(f"times do not increase: step {after.index} has time {after.time:g} after "
+                                   f"{before.time:g} at step {before.index}", where=after.where, fix=fix)
+        return None
 
     @property
     def time_origins(self) -> list:
@@ -327,8 +358,16 @@ class Series:
         if info.grid is not None:
             mesh, fields = self._read_collection_step(info)
         else:
-            raw = read_meshio(info.path)
-            mesh, fields = mesh_and_fields(raw, info.path, previous=self._mesh)
+            if not os.path.exists(info.path):
+                named = f" (named in {os.path.basename(self.path)})" if self.kind == "listing" else ""
+                raise InputFileNotFound(f"the step's file is missing{named}", where=info.where,
+                                        fix="restore the file" + (", or remove its line from the listing"
+                                                                  if named else ""))
+            try:
+                raw = read_meshio(info.path)
+                mesh, fields = mesh_and_fields(raw, info.where, previous=self._mesh)
+            except PhasegaugeError as err:
+                raise err.at(info.where) from None
             if info.time_origin == "index":
                 t = _time_from_field_data(fields.field_data)
                 if t is not None:
@@ -360,7 +399,7 @@ class Series:
 
     def _read_collection_step(self, info: StepInfo):
         reader = self._collection_reader(info.path)
-        where = f"{info.path}, step {info.index}"
+        where = info.where
         grid = reader.collection[info.grid]
         own_mesh = any(child.tag in ("Topology", "Geometry") for child in grid)
         key = info.grid if own_mesh else "shared"
@@ -373,10 +412,15 @@ class Series:
                     reader._points, _ = reader.read_points_cells()
                     reader._phasegauge_mesh_key = key
                 _, point_data, cell_data = _read_data_any_time(reader, info.grid)
-        except FileNotFoundError as exc:
-            raise InputFileNotFound(f"a data file the XDMF names is missing ({exc.filename or exc})",
-                                    where=where, fix="restore the HDF5 file next to the XDMF file") from None
         except Exception as exc:
+            from ._meshio_adapter import hdf5_problem
+
+            problem = hdf5_problem(exc, info.path)
+            if problem is not None:
+                raise problem.at(where) from None
+            if isinstance(exc, FileNotFoundError):
+                raise InputFileNotFound(f"a data file the XDMF names is missing ({_short(exc)})",
+                                        where=where, fix="restore the HDF5 file next to the XDMF file") from None
             raise UnreadableFileError(f"cannot read the step's data ({_short(exc)})", where=where,
                                       fix="check that the HDF5 file is complete (not truncated)") from None
         import meshio
@@ -385,17 +429,11 @@ class Series:
         raw = meshio.Mesh(reader._points, reader.cells, point_data=point_data, cell_data=cell_data)
         if cached is not None and cached[0] == key:
             # same grid mesh as the step before: reuse the model without rebuilding it
-            from ._meshio_adapter import StepFields, join_cell_data
+            from ._meshio_adapter import StepFields, join_cell_data, point_fields
 
             mesh = cached[1]
-            fields = StepFields({k: np.asarray(v) for k, v in point_data.items()},
+            fields = StepFields(point_fields(mesh, point_data, where=where),
                                 join_cell_data(mesh, raw.cell_data, where=where), {})
-            for name, values in fields.point_data.items():
-                if values.shape[0] != mesh.n_points:
-                    from ..errors import FieldShapeError
-
-                    raise FieldShapeError(f"point field '{name}' has {values.shape[0]} values for "
-                                          f"{mesh.n_points} points", where=where, fix="the file is damaged")
             return mesh, fields
         mesh, fields = mesh_and_fields(raw, where, previous=self._mesh)
         reader._phasegauge_mesh = (key, mesh)
@@ -422,6 +460,56 @@ class Series:
         state["_xdmf_readers"] = {}
         state["_mesh"] = None
         return state
+
+
+def _number_of(name: str):
+    """The last number in a file name and the name with it masked, or None."""
+    stem = os.path.basename(name)
+    matches = list(re.finditer(r"\d+", stem))
+    if not matches:
+        return None
+    last = matches[-1]
+    return stem[:last.start()] + "#" + stem[last.end():], int(last.group())
+
+
+def numbering_gaps(files: list) -> list:
+    """Gaps in the numbering of ``files`` (natural order): ``[(before, after), ...]`` file numbers.
+
+    Files named alike (same text around their last number) are compared; the
+    usual output interval is the smallest difference between consecutive
+    numbers, and a gap is a jump of a whole multiple (two or more) of it.
+    A change of interval (0, 10, 20, 40, 60) reads as one gap, at the change.
+    """
+    groups: dict = {}
+    for f in files:
+        parsed = _number_of(f)
+        if parsed is not None:
+            groups.setdefault(parsed[0], []).append(parsed[1])
+    gaps = []
+    for numbers in groups.values():
+        numbers = sorted(set(numbers))
+        if len(numbers) < 3:
+            continue
+        diffs = np.diff(numbers)
+        stride = int(diffs.min())
+        for a, b, d in zip(numbers[:-1], numbers[1:], diffs):
+            if d >= 2 * stride and d % stride == 0:
+                gaps.append((a, b))
+    return gaps
+
+
+def _warn_numbering_gaps(files: list, where: str, steps: list) -> None:
+    gaps = numbering_gaps(files)
+    if not gaps:
+        return
+    shown = ", ".join(f"{a} to {b}" for a, b in gaps[:3]) + (f" and {len(gaps) - 3} more" if len(gaps) > 3 else "")
+    if any(s.time_origin == "index" for s in steps):
+        then = ("the times are step indices, so steps after a gap get too early a time: give a 'time,path' "
+                "listing if steps are missing")
+    else:
+        then = "the times stored in the files are used, so the history stays right"
+    warnings.warn(SeriesWarning(f"the file numbers jump ({shown}): steps may be missing or the output interval "
+                                f"changed; {then}", where=where), stacklevel=3)
 
 
 def _read_data_any_time(reader, k: int):

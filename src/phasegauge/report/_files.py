@@ -7,6 +7,8 @@ interrupted run never leaves a damaged one.
 
 from __future__ import annotations
 
+import contextlib
+import contextvars
 import hashlib
 import io
 import json
@@ -17,10 +19,19 @@ import tempfile
 from ..errors import OutputError
 
 __all__ = ["atomic_write_bytes", "atomic_write_text", "atomic_write_csv", "atomic_write_json",
-           "atomic_save_figure", "prepare_output_folder", "sha256_of", "RUN_MARKER"]
+           "atomic_save_figure", "prepare_output_folder", "output_transaction", "sha256_of", "RUN_MARKER",
+           "PREVIOUS_RUN", "TEMP_PREFIX"]
 
 #: file inside an output folder that says a phasegauge run owns it
 RUN_MARKER = ".phasegauge-run.json"
+
+#: folder inside an output folder that holds the earlier run's outputs while ``--overwrite`` runs
+PREVIOUS_RUN = ".previous-run"
+
+#: prefix of the temporary files of atomic writes
+TEMP_PREFIX = ".tmp-"
+
+_ACTIVE = contextvars.ContextVar("phasegauge_output_transaction", default=None)
 
 
 def atomic_write_bytes(path, data: bytes) -> None:
@@ -29,7 +40,8 @@ def atomic_write_bytes(path, data: bytes) -> None:
     folder = os.path.dirname(os.path.abspath(path))
     try:
         os.makedirs(folder, exist_ok=True)
-        fd, tmp = tempfile.mkstemp(prefix=".tmp-", suffix=os.path.basename(path), dir=folder)
+        # the temporary name ends in '.part', so a listing of '*.pkl' or '*.vtu' never takes it for output
+        fd, tmp = tempfile.mkstemp(prefix=TEMP_PREFIX, suffix=os.path.basename(path) + ".part", dir=folder)
     except OSError as exc:
         raise OutputError(f"cannot write here ({exc.strerror or exc})", where=path,
                           fix="choose an output folder you can write to") from None
@@ -39,11 +51,14 @@ def atomic_write_bytes(path, data: bytes) -> None:
             handle.flush()
             os.fsync(handle.fileno())
         os.replace(tmp, path)
-    except BaseException:
+    except BaseException as exc:
         try:
             os.unlink(tmp)
         except OSError:
             pass
+        if isinstance(exc, OSError):  # a full disk, a folder removed under the run...
+            raise OutputError(f"cannot write {os.path.basename(path)} ({exc.strerror or exc})", where=folder,
+                              fix="free space or choose an output folder you can write to") from None
         raise
 
 
@@ -121,6 +136,9 @@ def prepare_output_folder(out, *, overwrite: bool = False, resume: bool = False,
     """
     out = os.fspath(out)
     marker = os.path.join(out, RUN_MARKER)
+    txn = _ACTIVE.get()
+    if txn is not None and txn.out != os.path.abspath(out):
+        txn = None
     if os.path.exists(out) and not os.path.isdir(out):
         raise OutputError("exists and is not a folder", where=out, fix="choose another output folder")
     exists = os.path.isdir(out) and bool(os.listdir(out))
@@ -130,11 +148,17 @@ def prepare_output_folder(out, *, overwrite: bool = False, resume: bool = False,
             if not owned:
                 raise OutputError("holds no phasegauge run to resume", where=out,
                                   fix="start a new run without --resume")
-            with open(marker, encoding="utf-8") as handle:
-                previous = json.load(handle)
+            try:
+                with open(marker, encoding="utf-8") as handle:
+                    previous = json.load(handle)
+            except (OSError, ValueError):
+                previous = {}
             if run_key and previous.get("run_key") != run_key:
                 raise OutputError("was made from other inputs or options, so it cannot be resumed", where=out,
                                   fix="rerun with the same inputs and options, or use --overwrite")
+            _remove_temporaries(out)
+            if txn is not None:
+                txn.mode = "resume"
             return "resume"
         if not overwrite:
             raise OutputError("output folder exists", where=out,
@@ -143,7 +167,10 @@ def prepare_output_folder(out, *, overwrite: bool = False, resume: bool = False,
         if not owned:
             raise OutputError("exists and holds files phasegauge did not write, so it is not replaced",
                               where=out, fix="choose an empty or new output folder")
-        _clear_owned(out)
+        if txn is not None:
+            _set_aside(out)
+        else:
+            _clear_owned(out)
         mode = "overwrite"
     else:
         mode = "new"
@@ -156,15 +183,118 @@ def prepare_output_folder(out, *, overwrite: bool = False, resume: bool = False,
     except OSError as exc:
         raise OutputError(f"cannot be written ({exc.strerror or exc})", where=out,
                           fix="choose an output folder you can write to") from None
+    if txn is not None:
+        txn.mode = mode
     atomic_write_json(marker, {"run_key": run_key, "state": "running"})
     return mode
+
+
+class _Transaction:
+    """State of one run's output folder (see :func:`output_transaction`)."""
+
+    def __init__(self, out: str):
+        self.out = os.path.abspath(out)
+        self.existed_empty = os.path.isdir(out) and not os.listdir(out)
+        self.mode = None  # set by prepare_output_folder: 'new', 'overwrite' or 'resume'
+        self.worth_keeping = lambda: False  # finished work a failed run should leave for --resume
+
+
+@contextlib.contextmanager
+def output_transaction(out):
+    """Make a run's output folder all-or-nothing as far as the user's earlier outputs go.
+
+    Inside this context, :func:`prepare_output_folder` with ``overwrite`` sets
+    the earlier run's outputs aside (in ``PREVIOUS_RUN`` inside the folder)
+    instead of deleting them. When the run then fails with an error, they are
+    put back and the earlier report is as it was; when it succeeds they are
+    deleted. A new folder that a failed run created is removed again, unless
+    the run sets ``worth_keeping`` to say it holds finished steps (the error then
+    says to resume). An interrupt (Ctrl-C, a kill) leaves everything for
+    ``--resume``; a resumed run that succeeds deletes what was set aside.
+
+    Yields the transaction (None for ``out=None``); nested uses for the same
+    folder are one transaction.
+    """
+    active = _ACTIVE.get()
+    if out is None or (active is not None and active.out == os.path.abspath(out)):
+        yield active if out is not None else None
+        return
+    txn = _Transaction(os.fspath(out))
+    token = _ACTIVE.set(txn)
+    try:
+        yield txn
+    except Exception as exc:
+        replacement = _roll_back(txn, exc)
+        if replacement is not None:
+            raise replacement from exc
+        raise
+    else:
+        if txn.mode in ("overwrite", "resume"):
+            shutil.rmtree(os.path.join(txn.out, PREVIOUS_RUN), ignore_errors=True)
+    finally:
+        _ACTIVE.reset(token)
+
+
+def _roll_back(txn: _Transaction, exc: Exception):
+    """Undo what a failed run did to its output folder; return a clearer error or None."""
+    from ..errors import PhasegaugeError
+
+    out = txn.out
+    aside = os.path.join(out, PREVIOUS_RUN)
+    try:
+        if txn.mode == "overwrite" and os.path.isdir(aside):
+            for name in os.listdir(out):
+                if name != PREVIOUS_RUN:
+                    _remove(os.path.join(out, name))
+            for name in os.listdir(aside):
+                os.replace(os.path.join(aside, name), os.path.join(out, name))
+            os.rmdir(aside)
+            if isinstance(exc, PhasegaugeError) and exc.exit_status == 2:
+                return exc.with_fix(f"{exc.fix}; the earlier outputs in {out} are kept as they were")
+        elif txn.mode == "new":
+            if txn.worth_keeping():
+                if isinstance(exc, PhasegaugeError):
+                    return exc.with_fix(f"{exc.fix}; the finished steps are kept in {out} for --resume")
+            elif os.path.exists(os.path.join(out, RUN_MARKER)):
+                shutil.rmtree(out, ignore_errors=True)
+                if txn.existed_empty:
+                    os.makedirs(out, exist_ok=True)
+    except OSError:  # cleaning up must never hide the error itself
+        pass
+    return None
+
+
+def _set_aside(out: str) -> None:
+    """Move an earlier run's outputs into ``PREVIOUS_RUN`` (a stale one from a killed run is dropped)."""
+    aside = os.path.join(out, PREVIOUS_RUN)
+    if os.path.isdir(aside):
+        shutil.rmtree(aside)
+    os.makedirs(aside)
+    for name in os.listdir(out):
+        if name != PREVIOUS_RUN:
+            os.replace(os.path.join(out, name), os.path.join(aside, name))
+
+
+def _remove(path: str) -> None:
+    if os.path.isdir(path) and not os.path.islink(path):
+        shutil.rmtree(path)
+    else:
+        os.remove(path)
+
+
+def _remove_temporaries(out: str) -> None:
+    """Remove the temporary files of atomic writes that a killed run left behind."""
+    for folder, dirs, files in os.walk(out):
+        dirs[:] = [d for d in dirs if d != PREVIOUS_RUN]
+        for name in files:
+            if name.startswith(TEMP_PREFIX):
+                try:
+                    os.remove(os.path.join(folder, name))
+                except OSError:
+                    pass
 
 
 def _clear_owned(out: str) -> None:
     """Remove the outputs of an earlier run (only in a folder phasegauge owns)."""
     for name in os.listdir(out):
-        path = os.path.join(out, name)
-        if os.path.isdir(path) and not os.path.islink(path):
-            shutil.rmtree(path)
-        else:
-            os.remove(path)
+        _remove(os.path.join(out, name))

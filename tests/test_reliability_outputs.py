@@ -1,0 +1,271 @@
+"""Nothing lost: atomic writes, no overwrite without --overwrite, earlier outputs kept when a run
+fails, killed runs resumed to identical tables, inputs byte-identical after every command (issue 10)."""
+
+import hashlib
+import json
+import os
+import signal
+import subprocess
+import sys
+import time
+
+import pandas as pd
+import pytest
+from click.testing import CliRunner
+
+from phasegauge.cli import main
+from phasegauge.errors import OutputError
+from phasegauge.meshgen import grid_mesh
+from phasegauge.report import _files
+
+FAST = ["--analyses", "conservation,droplets", "--no-contours", "-q"]
+
+try:  # the compare analysis is built apart; the compare command is checked where it exists
+    from phasegauge.analysis import compare as _compare  # noqa: F401
+
+    COMPARE_WORKS = True
+except ImportError:
+    COMPARE_WORKS = False
+
+
+def _series(folder, steps=4, n=16):
+    """Two discs drifting together on a fixed mesh (cell data), times in a listing."""
+    from test_pipeline import _moving_disc_series
+
+    os.makedirs(folder, exist_ok=True)
+    return _moving_disc_series(folder, steps=steps, n=n)
+
+
+def _cli(args):
+    res = CliRunner().invoke(main, [str(a) for a in args])
+    if res.exception is not None and not isinstance(res.exception, SystemExit):
+        raise AssertionError(f"exception escaped the command line: {res.exception!r}")
+    return res.exit_code, [ln for ln in res.stderr.splitlines() if ln.strip()]
+
+
+def _tree(folder):
+    """{relative path: sha256} of every file under ``folder``."""
+    out = {}
+    for base, _, files in os.walk(folder):
+        for name in files:
+            path = os.path.join(base, name)
+            with open(path, "rb") as f:
+                out[os.path.relpath(path, folder)] = hashlib.sha256(f.read()).hexdigest()
+    return out
+
+
+def _temporaries(folder):
+    return [os.path.join(b, n) for b, _, files in os.walk(folder) for n in files if n.startswith(_files.TEMP_PREFIX)]
+
+
+def _tables(out):
+    return {name: pd.read_csv(os.path.join(out, name)) for name in ("steps.csv", "droplets.csv", "events.csv")}
+
+
+# ------------------------------------------------------------------ atomic writes
+def test_failed_write_leaves_the_old_file_and_no_temporary(tmp_path):
+    target = tmp_path / "steps.csv"
+    target.write_text("old")
+
+    class Unwritable:
+        pass
+
+    with pytest.raises(TypeError):
+        _files.atomic_write_bytes(target, Unwritable())
+    assert target.read_text() == "old" and _temporaries(tmp_path) == []
+
+
+def test_write_error_mid_run_is_one_line_and_leaves_no_temporary(tmp_path, monkeypatch):
+    listing = _series(str(tmp_path / "in"), n=10)
+    out = tmp_path / "o"
+    real_replace = os.replace
+
+    def full_disk(src, dst):
+        if str(dst).endswith("report.html"):
+            raise OSError(28, "No space left on device")
+        return real_replace(src, dst)
+
+    monkeypatch.setattr(_files.os, "replace", full_disk)
+    code, err = _cli(["measure", listing, "-f", "alpha", "-o", out] + FAST)
+    assert code == 2 and len(err) == 1
+    assert "cannot write report.html (No space left on device)" in err[0]
+    # the finished steps stay for --resume, and the error says so
+    assert "the finished steps are kept in" in err[0] and "for --resume" in err[0]
+    assert _temporaries(out) == []
+    monkeypatch.setattr(_files.os, "replace", real_replace)
+    code, err = _cli(["measure", listing, "-f", "alpha", "-o", out, "--resume"] + FAST)
+    assert code == 0, err
+    code, err = _cli(["measure", listing, "-f", "alpha", "-o", tmp_path / "clean"] + FAST)
+    ref, got = _tables(tmp_path / "clean"), _tables(out)
+    for name in ref:
+        pd.testing.assert_frame_equal(ref[name], got[name], check_exact=True)
+
+
+# ------------------------------------------------------------------ output folders
+def test_failed_new_run_leaves_no_folder(tmp_path):
+    listing = _series(str(tmp_path / "in"), steps=2)
+    out = tmp_path / "o"
+    code, err = _cli(["measure", listing, "-f", "phi", "-o", out])
+    assert code == 2 and not out.exists()
+    # so the corrected command needs no --overwrite
+    assert _cli(["measure", listing, "-f", "alpha", "-o", out] + FAST)[0] == 0
+    empty = tmp_path / "empty"
+    empty.mkdir()
+    assert _cli(["measure", listing, "-f", "phi", "-o", empty])[0] == 2
+    assert empty.is_dir() and os.listdir(empty) == []
+
+
+def test_failed_overwrite_keeps_the_earlier_outputs(tmp_path):
+    listing = _series(str(tmp_path / "in"), steps=3, n=10)
+    out = tmp_path / "o"
+    assert _cli(["measure", listing, "-f", "alpha", "-o", out] + FAST)[0] == 0
+    before = _tree(out)
+    code, err = _cli(["measure", listing, "-f", "phi", "-o", out, "--overwrite"] + FAST)
+    assert code == 2 and len(err) == 1 and "the earlier outputs in" in err[0] and "are kept" in err[0]
+    assert _tree(out) == before
+    code, err = _cli(["measure", listing, "-f", "alpha", "-o", out, "--overwrite", "--level", "0.4"] + FAST)
+    assert code == 0 and not (out / _files.PREVIOUS_RUN).exists()
+    assert json.loads((out / "manifest.json").read_text())["options"]["level"] == 0.4
+
+
+def test_interrupted_overwrite_is_finished_by_resume(tmp_path, monkeypatch):
+    from phasegauge import measure, pipeline
+
+    listing = _series(str(tmp_path / "in"), steps=4)
+    out = tmp_path / "o"
+    measure(listing, "alpha", out=out, analyses=("conservation",), write_contours=False)
+    real = pipeline.run_step
+
+    def interrupted(path, index, options, **kw):
+        if index == 2:
+            raise KeyboardInterrupt
+        return real(path, index, options, **kw)
+
+    monkeypatch.setattr(pipeline, "run_step", interrupted)
+    with pytest.raises(KeyboardInterrupt):
+        measure(listing, "alpha", out=out, overwrite=True, analyses=("conservation",), write_contours=False)
+    # an interrupt keeps everything for --resume; the earlier run waits aside until this one finishes
+    assert (out / _files.PREVIOUS_RUN / "steps.csv").exists()
+    monkeypatch.setattr(pipeline, "run_step", real)
+    result = measure(listing, "alpha", out=out, resume=True, analyses=("conservation",), write_contours=False)
+    assert sum(r.reused for r in result.results) == 2
+    assert not (out / _files.PREVIOUS_RUN).exists() and (out / "steps.csv").exists()
+
+
+def test_resume_removes_temporaries_of_a_killed_run(tmp_path):
+    listing = _series(str(tmp_path / "in"), steps=2, n=6)
+    out = tmp_path / "o"
+    assert _cli(["measure", listing, "-f", "alpha", "-o", out] + FAST)[0] == 0
+    (out / ".cache" / ".tmp-abcdstep_000001.pkl.part").write_bytes(b"half")
+    (out / ".tmp-xyzsteps.csv.part").write_text("half")
+    assert _cli(["measure", listing, "-f", "alpha", "-o", out, "--resume"] + FAST)[0] == 0
+    assert _temporaries(out) == []
+
+
+def test_prepare_output_folder_rules(tmp_path):
+    (tmp_path / "file").write_text("x")
+    with pytest.raises(OutputError, match="exists and is not a folder"):
+        _files.prepare_output_folder(tmp_path / "file")
+    with pytest.raises(OutputError, match="cannot be written"):
+        _files.prepare_output_folder(tmp_path / "file" / "sub")
+    mine = tmp_path / "mine"
+    mine.mkdir()
+    (mine / "notes.txt").write_text("keep")
+    with pytest.raises(OutputError, match="holds no phasegauge run to resume"):
+        _files.prepare_output_folder(mine, resume=True)
+    with pytest.raises(OutputError, match="did not write"):
+        _files.prepare_output_folder(mine, overwrite=True)
+    assert (mine / "notes.txt").read_text() == "keep"
+
+
+# ------------------------------------------------------------------ killed and resumed
+def test_kill_with_two_workers_and_resume_gives_identical_tables(tmp_path):
+    from conftest import subprocess_env
+
+    listing = _series(str(tmp_path / "in"), steps=10, n=40)
+    assert _cli(["measure", listing, "-f", "alpha", "-o", tmp_path / "whole"] + FAST)[0] == 0
+    out = tmp_path / "killed"
+    cmd = [sys.executable, "-m", "phasegauge", "measure", listing, "-f", "alpha", "-o", str(out), "-j", "2"] + FAST
+    # a session of its own, so the kill takes the workers this test started with their parent
+    proc = subprocess.Popen(cmd, env=subprocess_env(), stdout=subprocess.DEVNULL, stderr=subprocess.DEVNULL,
+                            start_new_session=True)
+    cache = out / ".cache"
+    deadline = time.time() + 120
+    while time.time() < deadline and proc.poll() is None:
+        if cache.is_dir() and len([f for f in os.listdir(cache) if f.startswith("step_")]) >= 3:
+            break
+        time.sleep(0.02)
+    if proc.poll() is None:
+        os.killpg(proc.pid, signal.SIGKILL)
+    proc.wait()
+    cached = len([f for f in os.listdir(cache) if f.startswith("step_") and f.endswith(".pkl")])
+    assert cached >= 1
+    code, err = _cli(["measure", listing, "-f", "alpha", "-o", out, "--resume", "-j", "2"] + FAST)
+    assert code == 0, err
+    ref, got = _tables(tmp_path / "whole"), _tables(out)
+    for name in ref:
+        pd.testing.assert_frame_equal(ref[name], got[name], check_exact=True)
+    assert _temporaries(out) == []
+    manifest = json.loads((out / "manifest.json").read_text())
+    assert manifest["timings"]["steps_reused"] >= min(cached, 10)
+
+
+# ------------------------------------------------------------------ inputs untouched
+def test_inputs_byte_identical_after_every_command(tmp_path):
+    inputs = tmp_path / "in"
+    listing = _series(str(inputs), steps=3)
+    xdmf_dir = tmp_path / "xin"
+    xdmf_dir.mkdir()
+    import meshio
+
+    m = grid_mesh((6, 6), kind="quad")
+    old = os.getcwd()
+    os.chdir(xdmf_dir)
+    try:
+        with meshio.xdmf.TimeSeriesWriter("ts.xdmf") as w:
+            w.write_points_cells(m.points, [(b.cell_type, b.connectivity) for b in m.blocks])
+            for k in range(2):
+                w.write_data(0.5 * k, point_data={"phi": m.points[:, 0] * 2 - 1})
+    finally:
+        os.chdir(old)
+    recipe = inputs / "r.toml"
+    recipe.write_text(f'[input]\npath = "run.steps"\nfield = "alpha"\n[run]\nanalyses = ["conservation"]\n'
+                      f'[output]\nfolder = "{tmp_path / "recipe_out"}"\n')
+    before = {**_tree(inputs), **{f"x/{k}": v for k, v in _tree(xdmf_dir).items()}}
+
+    def unchanged():
+        return {**_tree(inputs), **{f"x/{k}": v for k, v in _tree(xdmf_dir).items()}} == before
+
+    commands = [
+        ["inspect", listing], ["inspect", listing, "--json"], ["inspect", xdmf_dir / "ts.xdmf"],
+        ["measure", listing, "-f", "alpha", "-o", tmp_path / "m1"] + FAST,
+        ["measure", listing, "-f", "alpha", "-o", tmp_path / "m1", "--resume"] + FAST,
+        ["measure", listing, "-f", "alpha", "-o", tmp_path / "m1", "--overwrite"] + FAST,
+        ["measure", xdmf_dir / "ts.xdmf", "-f", "phi", "--range", "-1,1", "-o", tmp_path / "m2"] + FAST,
+        ["measure", listing, "-f", "nope", "-o", tmp_path / "m3"],
+        ["run", recipe, "-q"],
+    ]
+    if COMPARE_WORKS:
+        commands.append(["compare", listing, listing, "--field-a", "alpha", "--field-b", "alpha",
+                         "-o", tmp_path / "c", "-q"])
+    for args in commands:
+        code, err = _cli(args)
+        assert code in (0, 2), (args, err)
+        assert unchanged(), args
+    # an output folder inside the input folder is refused when it would hold the inputs
+    assert _cli(["measure", listing, "-f", "alpha", "-o", inputs, "--overwrite"] + FAST)[0] == 2
+    assert unchanged()
+
+
+def test_samples_never_overwrite_without_the_flag(tmp_path):
+    code, err = _cli(["samples", tmp_path, "--only", "vortex_upwind"])
+    assert code == 0, err
+    before = _tree(tmp_path)
+    code, err = _cli(["samples", tmp_path, "--only", "vortex_upwind"])
+    assert code == 2 and len(err) == 1 and "series already there: vortex_upwind" in err[0]
+    assert _tree(tmp_path) == before
+    # a series written as one XDMF + HDF5 pair is protected as well
+    (tmp_path / "channel_mixing.xdmf").write_text("mine")
+    code, err = _cli(["samples", tmp_path, "--only", "channel_mixing"])
+    assert code == 2 and "channel_mixing" in err[0]
+    assert (tmp_path / "channel_mixing.xdmf").read_text() == "mine"
