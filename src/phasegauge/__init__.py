@@ -11,7 +11,7 @@ from .errors import (AnalysisError, FieldNotFoundError, FieldShapeError, InputEr
                      InputFileNotFound, OptionError, OutputError, PhasegaugeError,
                      PhasegaugeWarning, RangeWarning, NonFiniteWarning, SeriesError,
                      SkippedStepWarning, UnreadableFileError, UnsupportedMeshError,
-                     ResolutionWarning)
+                     ResolutionWarning, SeriesWarning, MeshWarning)
 from .mesh import CellBlock, Mesh, RegularGrid
 from .indicator import Indicator, make_indicator, map_to_indicator, parse_range
 from .io import Series, Step, StepInfo, open_series
@@ -23,7 +23,7 @@ __all__ = [
     "AnalysisError", "FieldNotFoundError", "FieldShapeError", "InputError", "InputFileNotFound",
     "OptionError", "OutputError", "PhasegaugeError", "PhasegaugeWarning", "RangeWarning",
     "NonFiniteWarning", "SeriesError", "SkippedStepWarning", "UnreadableFileError",
-    "UnsupportedMeshError", "ResolutionWarning",
+    "UnsupportedMeshError", "ResolutionWarning", "SeriesWarning", "MeshWarning",
     "CellBlock", "Mesh", "RegularGrid",
     "Indicator", "make_indicator", "map_to_indicator", "parse_range",
     "Series", "Step", "StepInfo", "open_series",

@@ -73,6 +73,16 @@ def compare_runs(first: RunSpec, second: RunSpec, *, out=None, overwrite: bool =
     workers : int
         Local worker processes for measuring each run.
     """
+    from .report._files import output_transaction
+
+    with output_transaction(out):
+        return _compare_runs(first, second, out=out, overwrite=overwrite, level=level,
+                             time_tolerance=time_tolerance, spacing=spacing, reference_table=reference_table,
+                             rising_bubble=rising_bubble, workers=workers, progress=progress, snapshots=snapshots)
+
+
+def _compare_runs(first, second, *, out, overwrite, level, time_tolerance, spacing, reference_table,
+                  rising_bubble, workers, progress, snapshots):
     import pandas as pd
 
     from .analysis import compare as cmp
