@@ -257,6 +257,21 @@ class Mesh:
         types = ", ".join(f"{k}: {v}" for k, v in self.cell_type_counts.items())
         return f"Mesh({self.dimension}D, {self.n_points} points, {self.n_cells} cells; {types})"
 
+    def memo(self, key, compute):
+        """Result of ``compute()`` cached on this mesh under ``key`` (mesh-only work of analyses).
+
+        Parameters
+        ----------
+        key : hashable
+            Names the quantity (and its parameters, e.g. ``("cell_extent", 0)``).
+        compute : callable
+            Called once, without arguments; its result must depend on the mesh only.
+        """
+        cache = self.__dict__.setdefault("_memo", {})
+        if key not in cache:
+            cache[key] = compute()
+        return cache[key]
+
     @cached_property
     def cell_type_counts(self) -> dict:
         """Number of analysed cells of each type."""
