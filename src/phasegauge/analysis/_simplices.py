@@ -78,7 +78,9 @@ def _block_simplices(cell_type: str, S: np.ndarray, dim: int, flat: np.ndarray |
     rows = np.arange(S.shape[0])
     if cell_type == "polygon":
         return [(S[:, [0, i, i + 1]], rows) for i in range(1, S.shape[1] - 1)]
-    if cell_type in ("triangle", "quad", "tetra"):
+    if cell_type in ("triangle", "tetra"):
+        return [(S, rows)]  # already simplices: no copy
+    if cell_type == "quad":
         return [(S[:, list(local)], rows) for local in _SPLIT[cell_type]]
     # hexahedra, wedges, pyramids: with flat faces the few simplices of the table; otherwise a
     # tetrahedron from the cell centre to every face triangle, quad faces split in four about
