@@ -202,10 +202,18 @@ def split_cells(mesh: Mesh, values: np.ndarray, active: np.ndarray | None = None
     simplices, owners = [], []
     quad_faces, quad_owner_rows = [], []  # 3D quad faces to split, with (tets so far)
 
+    def corner_mean(array, corners):
+        # the corners summed in order, then divided: as array[corners].mean(axis=1), without
+        # the (n, k, ...) temporary
+        total = array[corners[:, 0]].copy()
+        for j in range(1, corners.shape[1]):
+            total += array[corners[:, j]]
+        return total / corners.shape[1]
+
     def add_centres(corners: np.ndarray) -> np.ndarray:
         nonlocal n_extra
-        extra_x.append(X[corners].mean(axis=1))
-        extra_v.append(values[corners].mean(axis=1))
+        extra_x.append(corner_mean(X, corners))
+        extra_v.append(corner_mean(values, corners))
         ids = n_points + n_extra + np.arange(corners.shape[0])
         n_extra += corners.shape[0]
         return ids

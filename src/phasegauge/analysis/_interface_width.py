@@ -134,6 +134,10 @@ def cell_gradient(mesh: Mesh, c_point, *, cells=None) -> np.ndarray:
     return out[inverse.ravel()]
 
 
+#: simplices per chunk of the geometry pass
+_CHUNK = 1 << 16
+
+
 def _cross(a: np.ndarray, b: np.ndarray) -> np.ndarray:
     """Row-wise cross product of (n, 3) arrays (np.cross without its overhead)."""
     out = np.empty_like(a)
@@ -150,6 +154,13 @@ def _simplex_geometry(split: SimplexSplit) -> tuple[np.ndarray, np.ndarray]:
     determinant it divides by is d! times the signed measure.
     """
     S = split.simplices
+    if S.shape[0] > _CHUNK:  # in chunks: the temporaries stay small (memory, cache)
+        measures = np.empty(S.shape[0])
+        gradients = np.empty((S.shape[0], S.shape[1] - 1))
+        for part in _chunks(S.shape[0]):
+            piece = SimplexSplit(split.coordinates, split.values, S[part], split.owner[:0])
+            measures[part], gradients[part] = _simplex_geometry(piece)
+        return measures, gradients
     X, v = split.coordinates, split.values
     x0 = X[S[:, 0]]
     v0 = v[S[:, 0]]
@@ -172,6 +183,33 @@ def _simplex_geometry(split: SimplexSplit) -> tuple[np.ndarray, np.ndarray]:
 
 
 # --------------------------------------------------------------------------- simplex integrals
+
+def _chunks(n: int):
+    """Slices of at most ``_CHUNK`` simplices covering ``range(n)``."""
+    return [slice(start, start + _CHUNK) for start in range(0, n, _CHUNK)]
+
+
+def _simplex_integrals(split: SimplexSplit):
+    """Per simplex: measure and |grad c|; over all: band volume of 0.05 < c < 0.95 and int c (1 - c).
+
+    Chunk by chunk, so the per-corner temporaries stay small.
+    """
+    n = split.simplices.shape[0]
+    measures = np.empty(n)
+    gnorm = np.empty(n)
+    band = mixed = 0.0
+    for part in _chunks(n):
+        piece = SimplexSplit(split.coordinates, split.values, split.simplices[part], split.owner[:0])
+        vol, grad = _simplex_geometry(piece)
+        measures[part] = vol
+        gnorm[part] = np.linalg.norm(grad, axis=1)
+        v = split.values[piece.simplices]
+        ordered = np.sort(v, axis=1)
+        band += float((vol * (_fraction_below(ordered, 0.95, presorted=True)
+                              - _fraction_below(ordered, 0.05, presorted=True))).sum())
+        mixed += float(_quadratic_integral(vol, v, 1.0 - v).sum())
+    return measures, gnorm, band, mixed
+
 
 def _fraction_below(v: np.ndarray, t: float, *, presorted: bool = False) -> np.ndarray:
     """Measure fraction of each simplex where the linear field is below ``t``.
@@ -368,8 +406,7 @@ class _Work:
         lo, hi = _corner_extremes(mesh, self.clipped)
         active = np.isfinite(lo) & np.isfinite(hi) & (hi > _TAIL) & (lo < 1.0 - _TAIL)
         self.split = split_cells(mesh, self.clipped, active)
-        self.vertex_values = self.split.values[self.split.simplices]
-        self.measures, self.gradients = _simplex_geometry(self.split)
+        self.measures, self.gnorm, self.band, self.mixed = _simplex_integrals(self.split)
 
 
 def _nan_metrics() -> dict:
@@ -508,17 +545,11 @@ def _metrics(work: _Work, max_samples: int):
     size = contour.size
     if contour.n_elements == 0 or not size > 0 or work.split.simplices.shape[0] == 0:
         return _nan_metrics(), pd.DataFrame(columns=list(PROFILE_COLUMNS))
-    vol = work.measures
-    v = work.vertex_values
-    ordered = np.sort(v, axis=1)
-    band = vol * (_fraction_below(ordered, 0.95, presorted=True) - _fraction_below(ordered, 0.05, presorted=True))
-    width = float(band.sum()) / size
-    grad = work.gradients
-    gnorm = np.linalg.norm(grad, axis=1)
+    vol, gnorm = work.measures, work.gnorm
+    width = work.band / size
     weight = vol * gnorm
     total_grad = float(weight.sum())
-    mixed = _quadratic_integral(vol, v, 1.0 - v)
-    eps = float(mixed.sum()) / total_grad if total_grad > 0 else float("nan")
+    eps = work.mixed / total_grad if total_grad > 0 else float("nan")
     # second moment of the normal distance, weighted by |grad c|, out to 10 eps (the logistic
     # tails beyond hold 0.3 % of its variance) or 4 cells, whichever is farther
     sizes = contour.element_sizes
@@ -532,12 +563,14 @@ def _metrics(work: _Work, max_samples: int):
     dist[used] = _signed_distance(work.split.coordinates[used], work.split.values[used], contour,
                                   mesh.plane_axes, work.level, bound)
     known &= np.isfinite(dist)
-    d = dist[work.split.simplices]
-    inside = (weight > 0) & np.all(np.isfinite(d), axis=1)
-    d, wi = d[inside], weight[inside]
-    m0 = float(wi.sum())
-    m1 = float((wi * d.mean(axis=1)).sum())
-    m2 = float((gnorm[inside] * _quadratic_integral(vol[inside], d, d)).sum())
+    m0 = m1 = m2 = 0.0
+    for part in _chunks(work.split.simplices.shape[0]):
+        d = dist[work.split.simplices[part]]
+        inside = (weight[part] > 0) & np.all(np.isfinite(d), axis=1)
+        d, wi = d[inside], weight[part][inside]
+        m0 += float(wi.sum())
+        m1 += float((wi * d.mean(axis=1)).sum())
+        m2 += float((gnorm[part][inside] * _quadratic_integral(vol[part][inside], d, d)).sum())
     variance = m2 / m0 - (m1 / m0) ** 2 if m0 > 0 else float("nan")
     # cells of the contour
     g_el = cell_gradient(mesh, work.clipped, cells=contour.cells)
