@@ -22,7 +22,9 @@ memory is its own):
 Printed ratios: measure / baseline; per-step cost after the first / raw read of one step
 (mesh + data, as reading that step alone); parallel efficiency t_serial / (2 t_2workers);
 peak memory above the process's memory after imports, relative to one step's mesh + fields
-bytes, for the first and the second half of the steps (flat means equal); time per cell.
+bytes, for the first and the second half of the steps (flat means equal); time per cell; and the
+CPU seconds of the 2-worker run over the serial run's (the cost of going parallel, which other
+processes on a shared machine do not distort, unlike the wall-clock efficiency).
 
 Usage::
 
@@ -179,6 +181,15 @@ def job_measure(path: str, steps: int, workers: int) -> dict:
             "droplets": [int(v) for v in result.steps["droplet_count"]]}
 
 
+def _cpu_seconds() -> float:
+    """CPU seconds of this process and its finished children (worker processes)."""
+    import resource
+
+    own = resource.getrusage(resource.RUSAGE_SELF)
+    kids = resource.getrusage(resource.RUSAGE_CHILDREN)
+    return own.ru_utime + own.ru_stime + kids.ru_utime + kids.ru_stime
+
+
 def _child(config: str, path: str, steps: int) -> None:
     """Run one configuration; print a JSON line with timings and memory."""
     import psutil
@@ -214,6 +225,7 @@ def _child(config: str, path: str, steps: int) -> None:
             done.wait(0.05)
 
     thread = threading.Thread(target=sample, daemon=True)
+    cpu_start = _cpu_seconds()
     start = time.perf_counter()
     thread.start()
     if config == "raw":
@@ -225,6 +237,7 @@ def _child(config: str, path: str, steps: int) -> None:
     done.set()
     thread.join()
     end = time.perf_counter()
+    out["cpu_seconds"] = _cpu_seconds() - cpu_start
     half = start + 0.5 * (end - start)
     first = max([r for t, r in samples if t <= half], default=base)
     second = max([r for t, r in samples if t > half], default=base)
@@ -271,6 +284,10 @@ def _ratio_line(info: dict, res: dict) -> dict:
         row["step_over_raw"] = row["step_after_first_s"] / raw["step_seconds"]
     if ser and par:
         row["parallel_efficiency"] = ser["seconds"] / (2 * par["seconds"])
+        if "cpu_seconds" in ser and "cpu_seconds" in par:
+            # CPU spent by the two workers against the serial run: the overhead of going parallel,
+            # which a machine shared with other processes does not distort
+            row["cpu_workers2_over_serial"] = par["cpu_seconds"] / ser["cpu_seconds"]
     return row
 
 
@@ -326,7 +343,8 @@ def main(argv=None) -> None:
             print("  " + "  ".join(f"{k}={_fmt(v)}" for k, v in row.items() if k not in ("kind",)), flush=True)
     print("\nsummary (targets: measure/baseline <= 0.5, step/raw <= 3, efficiency >= 0.8, peak <= 4x step)")
     keys = ["kind", "cells", "baseline_s", "serial_s", "workers2_s", "measure_over_baseline", "raw_step_s",
-            "step_after_first_s", "step_over_raw", "parallel_efficiency", "peak_x_step", "peak_halves_MB",
+            "step_after_first_s", "step_over_raw", "parallel_efficiency", "cpu_workers2_over_serial",
+            "peak_x_step", "peak_halves_MB",
             "us_per_cell_step"]
     print(" | ".join(keys))
     for row in rows:

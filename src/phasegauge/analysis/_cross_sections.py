@@ -22,6 +22,8 @@ from ..errors import OptionError
 from ..indicator import Indicator
 from ..mesh import Mesh
 from ._simplices import cell_extent, split_cells
+from ._sums import dot
+
 
 __all__ = ["cross_sections", "PROFILE_COLUMNS"]
 
@@ -186,15 +188,15 @@ def simplex_moments(measures: np.ndarray, f: np.ndarray, g: np.ndarray | None = 
     d = k - 1
     sf = f.sum(axis=1)
     if g is None:
-        return float(np.dot(measures, sf) / k)
+        return float(dot(measures, sf) / k)
     sg = g.sum(axis=1)
     fg = f * g
     if h is None:
-        return float(np.dot(measures, fg.sum(axis=1) + sf * sg) * factorial(d) / factorial(d + 2))
+        return float(dot(measures, fg.sum(axis=1) + sf * sg) * factorial(d) / factorial(d + 2))
     sh = h.sum(axis=1)
     total = (sf * sg * sh + fg.sum(axis=1) * sh + (g * h).sum(axis=1) * sf + (f * h).sum(axis=1) * sg
              + 2 * (fg * h).sum(axis=1))
-    return float(np.dot(measures, total) * factorial(d) / factorial(d + 3))
+    return float(dot(measures, total) * factorial(d) / factorial(d + 3))
 
 
 def _statistics(weight_total: float, first: float, second: float, shift: float) -> tuple[float, float]:
