@@ -257,6 +257,21 @@ class Mesh:
         types = ", ".join(f"{k}: {v}" for k, v in self.cell_type_counts.items())
         return f"Mesh({self.dimension}D, {self.n_points} points, {self.n_cells} cells; {types})"
 
+    def memo(self, key, compute):
+        """Result of ``compute()`` cached on this mesh under ``key`` (mesh-only work of analyses).
+
+        Parameters
+        ----------
+        key : hashable
+            Names the quantity (and its parameters, e.g. ``("cell_extent", 0)``).
+        compute : callable
+            Called once, without arguments; its result must depend on the mesh only.
+        """
+        cache = self.__dict__.setdefault("_memo", {})
+        if key not in cache:
+            cache[key] = compute()
+        return cache[key]
+
     @cached_property
     def cell_type_counts(self) -> dict:
         """Number of analysed cells of each type."""
@@ -304,7 +319,10 @@ class Mesh:
     @cached_property
     def used_points(self) -> np.ndarray:
         """Indices of the points that belong to at least one analysed cell."""
-        return np.unique(np.concatenate([b.connectivity.ravel() for b in self.blocks]))
+        used = np.zeros(self.n_points, dtype=bool)
+        for b in self.blocks:
+            used[b.connectivity.ravel()] = True
+        return np.flatnonzero(used)
 
     @cached_property
     def cell_types(self) -> np.ndarray:
@@ -468,7 +486,7 @@ class Mesh:
         pairs = _sort_small_rows(pairs[pairs[:, 0] != pairs[:, 1]])
         if not pairs.size:
             return pairs.reshape(0, 2)
-        key = np.unique(pairs[:, 0] * np.int64(self.n_cells) + pairs[:, 1])
+        key = _unique_ints(pairs[:, 0] * np.int64(self.n_cells) + pairs[:, 1])
         return np.stack([key // self.n_cells, key % self.n_cells], axis=1)
 
     @cached_property
@@ -524,7 +542,7 @@ class Mesh:
                 rows.append(np.stack([conn[:, a], conn[:, b]], axis=1))
         e = _sort_small_rows(np.concatenate(rows))
         e = e[e[:, 0] != e[:, 1]]
-        key = np.unique(e[:, 0] * np.int64(self.n_points) + e[:, 1])
+        key = _unique_ints(e[:, 0] * np.int64(self.n_points) + e[:, 1])
         return np.stack([key // self.n_points, key % self.n_points], axis=1)
 
     # ---------------------------------------------------------- regular grids
@@ -562,7 +580,7 @@ class Mesh:
             return None
         pidx = np.stack(idx, axis=1)
         flat_points = np.ravel_multi_index(tuple(pidx.T), point_shape)
-        if np.unique(flat_points).size != self.n_points:
+        if _unique_ints(flat_points).size != self.n_points:
             return None
         conn = self.blocks[0].connectivity if len(self.blocks) == 1 else np.concatenate(
             [b.connectivity for b in self.blocks])
@@ -572,7 +590,7 @@ class Mesh:
         if np.any(hi - lo != 1):
             return None
         flat_cells = np.ravel_multi_index(tuple(lo.T), cell_shape)
-        if np.unique(flat_cells).size != self.n_cells:
+        if _unique_ints(flat_cells).size != self.n_cells:
             return None
         steps = [np.diff(a) for a in axes]
         uniform = all(np.allclose(s, s.mean(), rtol=1e-6, atol=0) for s in steps)
@@ -716,6 +734,18 @@ _MIX = np.array([0x9E3779B97F4A7C15, 0xC2B2AE3D27D4EB4F, 0x165667B19E3779F9, 0x2
                 dtype=np.uint64)
 
 
+def _unique_ints(values: np.ndarray) -> np.ndarray:
+    """Sorted distinct values of a 1D integer array.
+
+    By sorting: ``np.unique`` without ``return_*`` options takes a hash path
+    that is many times slower on millions of values (numpy 2.3-2.4).
+    """
+    s = np.sort(np.ravel(values))
+    if s.size < 2:
+        return s
+    return s[np.concatenate([[True], s[1:] != s[:-1]])]
+
+
 def _sort_small_rows(rows: np.ndarray) -> np.ndarray:
     """Sort each row of an (n, 2) or (n, 4) array with a sorting network (fast for many rows)."""
     w = rows.shape[1]
@@ -738,14 +768,28 @@ def _group_rows(rows: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
     ``starts`` (the first position of each group in that order). Rows are
     hashed to one 64-bit key and sorted by it; equality of rows within a key
     group is then checked, and the rare key collision falls back to an exact
-    lexicographic sort.
+    lexicographic sort. When the rows' value ranges fit, the key is the exact
+    mixed-radix number of the row instead (no hashing, no check).
     """
+    if rows.shape[0] == 0:
+        return np.zeros(0, dtype=np.int64), np.zeros(0, dtype=np.int64)
+    lo = rows.min(axis=0)
+    span = (rows.max(axis=0) - lo + 1).astype(np.float64)
+    varying = np.nonzero(span > 1)[0]
+    if np.prod(span[varying]) < 2.0 ** 62:
+        key = np.zeros(rows.shape[0], dtype=np.int64)
+        for j in varying:
+            key *= np.int64(span[j])
+            key += rows[:, j] - lo[j]
+        order = np.argsort(key)  # the order within a group does not matter
+        ks = key[order]
+        return order, np.nonzero(np.concatenate([[True], ks[1:] != ks[:-1]]))[0]
     with np.errstate(over="ignore"):
         key = np.zeros(rows.shape[0], dtype=np.uint64)
         for j in range(rows.shape[1]):
             key = (key ^ (rows[:, j].astype(np.uint64) + np.uint64(1))) * _MIX[j % 4]
             key ^= key >> np.uint64(29)
-    order = np.argsort(key, kind="stable")
+    order = np.argsort(key)  # the order within a group does not matter
     ks = key[order]
     new_key = np.concatenate([[True], ks[1:] != ks[:-1]])
     sr = rows[order]

@@ -22,7 +22,7 @@ from dataclasses import dataclass
 import numpy as np
 
 from ..errors import OptionError
-from ..mesh import Mesh
+from ..mesh import _FACES as _MESH_FACES, Mesh, _sort_small_rows
 
 __all__ = ["Contour", "find_interface", "split_cells"]
 
@@ -202,24 +202,38 @@ def split_cells(mesh: Mesh, values: np.ndarray, active: np.ndarray | None = None
     simplices, owners = [], []
     quad_faces, quad_owner_rows = [], []  # 3D quad faces to split, with (tets so far)
 
+    def corner_mean(array, corners):
+        # the corners summed in order, then divided: as array[corners].mean(axis=1), without
+        # the (n, k, ...) temporary
+        total = array[corners[:, 0]].copy()
+        for j in range(1, corners.shape[1]):
+            total += array[corners[:, j]]
+        return total / corners.shape[1]
+
     def add_centres(corners: np.ndarray) -> np.ndarray:
         nonlocal n_extra
-        extra_x.append(X[corners].mean(axis=1))
-        extra_v.append(values[corners].mean(axis=1))
+        extra_x.append(corner_mean(X, corners))
+        extra_v.append(corner_mean(values, corners))
         ids = n_points + n_extra + np.arange(corners.shape[0])
         n_extra += corners.shape[0]
         return ids
 
-    pending = []  # 3D: (face corners (n,4), apex ids (n,), owner (n,)) split after dedupe
-    for block, start in zip(mesh.blocks, mesh.block_offsets[:-1]):
+    pending = []  # 3D: (face corners (n,4), apex ids (n,), owner (n,), face ids (n,)) split after dedupe
+    for b, (block, start) in enumerate(zip(mesh.blocks, mesh.block_offsets[:-1])):
         conn = block.connectivity
         ids = np.arange(start, start + len(block))
+        local_ids = None
         if active is not None:
             keep = active[ids]
             conn, ids = conn[keep], ids[keep]
+            local_ids = np.nonzero(keep)[0]
         if len(ids) == 0:
             continue
         kind = block.cell_type
+        if kind in ("hexahedron", "wedge", "pyramid"):
+            block_faces = _quad_face_ids(mesh)[b]
+            if local_ids is not None:
+                block_faces = block_faces[local_ids]
         if kind in ("triangle", "tetra"):
             simplices.append(conn)
             owners.append(ids)
@@ -230,12 +244,12 @@ def split_cells(mesh: Mesh, values: np.ndarray, active: np.ndarray | None = None
                 simplices.append(np.column_stack([conn[:, i], conn[:, (i + 1) % k], centre]))
                 owners.append(ids)
         elif kind == "pyramid":
-            pending.append((conn[:, [0, 3, 2, 1]], conn[:, 4], ids))
+            pending.append((conn[:, [0, 3, 2, 1]], conn[:, 4], ids, block_faces[:, 0]))
         elif kind in ("hexahedron", "wedge"):
             centre = add_centres(conn)
             faces = _HEX_FACES if kind == "hexahedron" else _WEDGE_QUADS
-            for f in faces:
-                pending.append((conn[:, list(f)], centre, ids))
+            for j, f in enumerate(faces):
+                pending.append((conn[:, list(f)], centre, ids, block_faces[:, j]))
             if kind == "wedge":
                 for f in _WEDGE_TRIS:
                     simplices.append(np.column_stack([conn[:, list(f)], centre]))
@@ -246,9 +260,17 @@ def split_cells(mesh: Mesh, values: np.ndarray, active: np.ndarray | None = None
         faces = np.concatenate([p[0] for p in pending])
         apex = np.concatenate([p[1] for p in pending])
         own = np.concatenate([p[2] for p in pending])
-        key = np.sort(faces, axis=1)
-        unique, inverse = np.unique(key, axis=0, return_inverse=True)
-        centre = add_centres(unique)[inverse.ravel()]
+        face_id = np.concatenate([p[3] for p in pending])
+        # one centre per distinct face: the mesh's face numbering (cached per mesh) groups the
+        # two sides of a face; the centre is the mean of its corners in sorted order
+        first = np.zeros(int(face_id.max()) + 1, dtype=np.int64)
+        seen = np.zeros(first.size, dtype=bool)
+        seen[face_id] = True
+        first[face_id[::-1]] = np.arange(face_id.size - 1, -1, -1)
+        distinct = np.nonzero(seen)[0]
+        compact = np.cumsum(seen) - 1
+        corners = _sort_small_rows(faces[first[distinct]])
+        centre = add_centres(corners)[compact[face_id]]
         for i in range(4):
             simplices.append(np.column_stack([faces[:, i], faces[:, (i + 1) % 4], centre, apex]))
             owners.append(own)
@@ -263,15 +285,48 @@ def split_cells(mesh: Mesh, values: np.ndarray, active: np.ndarray | None = None
     return SimplexSplit(coordinates, vals, simp, owner)
 
 
+def _quad_face_ids(mesh: Mesh) -> list:
+    """Per block, the mesh face number of each quad face the split cones (cached per mesh).
+
+    Hexahedra: the six faces of ``_HEX_FACES``; wedges: the three of ``_WEDGE_QUADS``;
+    pyramids: the base; other types: None. Faces shared by two cells get one number.
+    """
+
+    def compute():
+        faces, owners, order, starts = mesh._faces
+        group = np.empty(order.size, dtype=np.int64)
+        sizes = np.diff(np.append(starts, order.size))
+        group[order] = np.repeat(np.arange(starts.size), sizes)
+        out, row = [], 0
+        for block in mesh.blocks:
+            n = len(block)
+            local = (len(_MESH_FACES[block.cell_type]) if block.cell_type != "polygon"
+                     else block.connectivity.shape[1])
+            ids = group[row:row + local * n].reshape(local, n).T
+            row += local * n
+            quads = {"hexahedron": slice(0, 6), "wedge": slice(2, 5), "pyramid": slice(0, 1)}
+            out.append(np.ascontiguousarray(ids[:, quads[block.cell_type]])
+                       if block.cell_type in quads else None)
+        return out
+
+    return mesh.memo("quad_face_ids", compute)
+
+
 def _corner_extremes(mesh: Mesh, values: np.ndarray):
     """Per-cell min and max of the corner values (NaN when any corner is NaN)."""
     lo = np.empty(mesh.n_cells)
     hi = np.empty(mesh.n_cells)
     for block, start in zip(mesh.blocks, mesh.block_offsets[:-1]):
-        v = values[block.connectivity]
+        conn = block.connectivity
         sl = slice(int(start), int(start) + len(block))
-        lo[sl] = v.min(axis=1)
-        hi[sl] = v.max(axis=1)
+        first = values[conn[:, 0]]
+        low, high = lo[sl], hi[sl]
+        np.copyto(low, first)
+        np.copyto(high, first)
+        for j in range(1, conn.shape[1]):  # column by column: faster than a reduction over axis 1
+            v = values[conn[:, j]]
+            np.minimum(low, v, out=low)
+            np.maximum(high, v, out=high)
     return lo, hi
 
 
@@ -349,11 +404,13 @@ def _find_on_simplices(mesh: Mesh, c: np.ndarray, level: float) -> Contour:
     E, UP, owner = _march_simplices(split, level, dim)
     if E.shape[0] == 0:
         return _empty(mesh)
-    ends = np.sort(E.reshape(-1, 2), axis=1)
-    unique, inverse = np.unique(ends, axis=0, return_inverse=True)
+    ends = E.reshape(-1, 2)
+    n_vertices = np.int64(split.coordinates.shape[0])
+    key = np.minimum(ends[:, 0], ends[:, 1]) * n_vertices + np.maximum(ends[:, 0], ends[:, 1])
+    unique, inverse = np.unique(key, return_inverse=True)  # same order as sorting the edge rows
     inverse = inverse.ravel()
     X, v = split.coordinates, split.values
-    p, q = unique[:, 0], unique[:, 1]
+    p, q = unique // n_vertices, unique % n_vertices
     t = (level - v[p]) / (v[q] - v[p])
     pts = X[p] + t[:, None] * (X[q] - X[p])
     elements = inverse.reshape(E.shape[0], dim)

@@ -22,6 +22,8 @@ from ..errors import OptionError
 from ..indicator import Indicator
 from ..mesh import Mesh
 from ._simplices import cell_extent, split_cells
+from ._sums import dot
+
 
 __all__ = ["cross_sections", "PROFILE_COLUMNS"]
 
@@ -138,24 +140,32 @@ def _section_pieces(mesh: Mesh, axis: int, position: float, lower_end: bool, sta
     s = np.take_along_axis(s, order, axis=1)
     F = np.take_along_axis(F, order[:, :, None], axis=1)
 
-    def edge(rows, i, j):
-        si, sj = s[rows, i], s[rows, j]
-        Fi = F[rows, i]
-        return Fi + (si / (si - sj))[:, None] * (F[rows, j] - Fi)
+    def case(k):
+        # the simplices with k corners below the plane, gathered once for all their edges
+        rows = below == k
+        sk, Fk = s[rows], F[rows]
+
+        def edge(i, j):
+            si, sj = sk[:, i], sk[:, j]
+            Fi = Fk[:, i]
+            return Fi + (si / (si - sj))[:, None] * (Fk[:, j] - Fi)
+
+        return edge
 
     n_plane = len(others)
-    one, two, three = (np.nonzero(below == k)[0] for k in (1, 2, 3))
+    one, two = case(1), case(2)
     if dim == 2:
-        pieces = np.concatenate([np.stack([edge(one, 0, 1), edge(one, 0, 2)], axis=1),
-                                 np.stack([edge(two, 0, 2), edge(two, 1, 2)], axis=1)])
+        pieces = np.concatenate([np.stack([one(0, 1), one(0, 2)], axis=1),
+                                 np.stack([two(0, 2), two(1, 2)], axis=1)])
         measures = np.abs(pieces[:, 1, 0] - pieces[:, 0, 0])
         return measures, pieces[:, :, n_plane:]
-    e02, e13 = edge(two, 0, 2), edge(two, 1, 3)
+    three = case(3)
+    e02, e13 = two(0, 2), two(1, 3)
     pieces = np.concatenate([
-        np.stack([edge(one, 0, 1), edge(one, 0, 2), edge(one, 0, 3)], axis=1),
-        np.stack([edge(three, 0, 3), edge(three, 1, 3), edge(three, 2, 3)], axis=1),
-        np.stack([e02, edge(two, 0, 3), e13], axis=1),
-        np.stack([e02, e13, edge(two, 1, 2)], axis=1),
+        np.stack([one(0, 1), one(0, 2), one(0, 3)], axis=1),
+        np.stack([three(0, 3), three(1, 3), three(2, 3)], axis=1),
+        np.stack([e02, two(0, 3), e13], axis=1),
+        np.stack([e02, e13, two(1, 2)], axis=1),
     ])
     d1 = pieces[:, 1, :2] - pieces[:, 0, :2]
     d2 = pieces[:, 2, :2] - pieces[:, 0, :2]
@@ -178,15 +188,15 @@ def simplex_moments(measures: np.ndarray, f: np.ndarray, g: np.ndarray | None = 
     d = k - 1
     sf = f.sum(axis=1)
     if g is None:
-        return float(np.dot(measures, sf) / k)
+        return float(dot(measures, sf) / k)
     sg = g.sum(axis=1)
     fg = f * g
     if h is None:
-        return float(np.dot(measures, fg.sum(axis=1) + sf * sg) * factorial(d) / factorial(d + 2))
+        return float(dot(measures, fg.sum(axis=1) + sf * sg) * factorial(d) / factorial(d + 2))
     sh = h.sum(axis=1)
     total = (sf * sg * sh + fg.sum(axis=1) * sh + (g * h).sum(axis=1) * sf + (f * h).sum(axis=1) * sg
              + 2 * (fg * h).sum(axis=1))
-    return float(np.dot(measures, total) * factorial(d) / factorial(d + 3))
+    return float(dot(measures, total) * factorial(d) / factorial(d + 3))
 
 
 def _statistics(weight_total: float, first: float, second: float, shift: float) -> tuple[float, float]:

@@ -134,35 +134,92 @@ def cell_gradient(mesh: Mesh, c_point, *, cells=None) -> np.ndarray:
     return out[inverse.ravel()]
 
 
-def _simplex_gradients(split: SimplexSplit) -> np.ndarray:
-    """Gradient of the linear field on each simplex (zero on a degenerate one), by Cramer's rule."""
+#: simplices per chunk of the geometry pass
+_CHUNK = 1 << 16
+
+
+def _cross(a: np.ndarray, b: np.ndarray) -> np.ndarray:
+    """Row-wise cross product of (n, 3) arrays (np.cross without its overhead)."""
+    out = np.empty_like(a)
+    out[:, 0] = a[:, 1] * b[:, 2] - a[:, 2] * b[:, 1]
+    out[:, 1] = a[:, 2] * b[:, 0] - a[:, 0] * b[:, 2]
+    out[:, 2] = a[:, 0] * b[:, 1] - a[:, 1] * b[:, 0]
+    return out
+
+
+def _simplex_geometry(split: SimplexSplit) -> tuple[np.ndarray, np.ndarray]:
+    """Unsigned measures and gradients of the linear field of each simplex, in one pass.
+
+    The gradient comes by Cramer's rule (zero on a degenerate simplex); the
+    determinant it divides by is d! times the signed measure.
+    """
     S = split.simplices
+    if S.shape[0] > _CHUNK:  # in chunks: the temporaries stay small (memory, cache)
+        measures = np.empty(S.shape[0])
+        gradients = np.empty((S.shape[0], S.shape[1] - 1))
+        for part in _chunks(S.shape[0]):
+            piece = SimplexSplit(split.coordinates, split.values, S[part], split.owner[:0])
+            measures[part], gradients[part] = _simplex_geometry(piece)
+        return measures, gradients
     X, v = split.coordinates, split.values
     x0 = X[S[:, 0]]
+    v0 = v[S[:, 0]]
     e = [X[S[:, i]] - x0 for i in range(1, S.shape[1])]
-    dv = [v[S[:, i]] - v[S[:, 0]] for i in range(1, S.shape[1])]
+    dv = [v[S[:, i]] - v0 for i in range(1, S.shape[1])]
     if len(e) == 2:
         det = e[0][:, 0] * e[1][:, 1] - e[0][:, 1] * e[1][:, 0]
         num = np.stack([dv[0] * e[1][:, 1] - dv[1] * e[0][:, 1],
                         dv[1] * e[0][:, 0] - dv[0] * e[1][:, 0]], axis=1)
+        measures = 0.5 * np.abs(det)
     else:
-        c23, c31, c12 = np.cross(e[1], e[2]), np.cross(e[2], e[0]), np.cross(e[0], e[1])
-        det = np.einsum("ij,ij->i", e[0], c23)
-        num = dv[0][:, None] * c23 + dv[1][:, None] * c31 + dv[2][:, None] * c12
+        c23, c31, c12 = _cross(e[1], e[2]), _cross(e[2], e[0]), _cross(e[0], e[1])
+        det = e[0][:, 0] * c23[:, 0] + e[0][:, 1] * c23[:, 1] + e[0][:, 2] * c23[:, 2]
+        num = dv[0][:, None] * c23
+        num += dv[1][:, None] * c31
+        num += dv[2][:, None] * c12
+        measures = np.abs(det) / 6.0
     ok = det != 0
-    return np.divide(num, det[:, None], out=np.zeros_like(num), where=ok[:, None])
+    return measures, np.divide(num, det[:, None], out=np.zeros_like(num), where=ok[:, None])
 
 
 # --------------------------------------------------------------------------- simplex integrals
 
-def _fraction_below(v: np.ndarray, t: float) -> np.ndarray:
+def _chunks(n: int):
+    """Slices of at most ``_CHUNK`` simplices covering ``range(n)``."""
+    return [slice(start, start + _CHUNK) for start in range(0, n, _CHUNK)]
+
+
+def _simplex_integrals(split: SimplexSplit):
+    """Per simplex: measure and |grad c|; over all: band volume of 0.05 < c < 0.95 and int c (1 - c).
+
+    Chunk by chunk, so the per-corner temporaries stay small.
+    """
+    n = split.simplices.shape[0]
+    measures = np.empty(n)
+    gnorm = np.empty(n)
+    band = mixed = 0.0
+    for part in _chunks(n):
+        piece = SimplexSplit(split.coordinates, split.values, split.simplices[part], split.owner[:0])
+        vol, grad = _simplex_geometry(piece)
+        measures[part] = vol
+        gnorm[part] = np.linalg.norm(grad, axis=1)
+        v = split.values[piece.simplices]
+        ordered = np.sort(v, axis=1)
+        band += float((vol * (_fraction_below(ordered, 0.95, presorted=True)
+                              - _fraction_below(ordered, 0.05, presorted=True))).sum())
+        mixed += float(_quadratic_integral(vol, v, 1.0 - v).sum())
+    return measures, gnorm, band, mixed
+
+
+def _fraction_below(v: np.ndarray, t: float, *, presorted: bool = False) -> np.ndarray:
     """Measure fraction of each simplex where the linear field is below ``t``.
 
-    ``v`` holds the vertex values, shape (n, d + 1) with d = 2 or 3. The
-    distribution of a linear function over a simplex is a B-spline with knots
-    at the vertex values; the branches below avoid dividing by a tie.
+    ``v`` holds the vertex values, shape (n, d + 1) with d = 2 or 3 (sorted
+    along axis 1 when ``presorted``). The distribution of a linear function
+    over a simplex is a B-spline with knots at the vertex values; the branches
+    below avoid dividing by a tie.
     """
-    s = np.sort(v, axis=1)
+    s = v if presorted else np.sort(v, axis=1)
     d = s.shape[1] - 1
     out = np.zeros(s.shape[0])
     with np.errstate(divide="ignore", invalid="ignore", over="ignore"):
@@ -349,8 +406,7 @@ class _Work:
         lo, hi = _corner_extremes(mesh, self.clipped)
         active = np.isfinite(lo) & np.isfinite(hi) & (hi > _TAIL) & (lo < 1.0 - _TAIL)
         self.split = split_cells(mesh, self.clipped, active)
-        self.vertex_values = self.split.values[self.split.simplices]
-        self.measures = self.split.measures
+        self.measures, self.gnorm, self.band, self.mixed = _simplex_integrals(self.split)
 
 
 def _nan_metrics() -> dict:
@@ -489,16 +545,11 @@ def _metrics(work: _Work, max_samples: int):
     size = contour.size
     if contour.n_elements == 0 or not size > 0 or work.split.simplices.shape[0] == 0:
         return _nan_metrics(), pd.DataFrame(columns=list(PROFILE_COLUMNS))
-    vol = work.measures
-    v = work.vertex_values
-    band = vol * (_fraction_below(v, 0.95) - _fraction_below(v, 0.05))
-    width = float(band.sum()) / size
-    grad = _simplex_gradients(work.split)
-    gnorm = np.linalg.norm(grad, axis=1)
+    vol, gnorm = work.measures, work.gnorm
+    width = work.band / size
     weight = vol * gnorm
     total_grad = float(weight.sum())
-    mixed = _quadratic_integral(vol, v, 1.0 - v)
-    eps = float(mixed.sum()) / total_grad if total_grad > 0 else float("nan")
+    eps = work.mixed / total_grad if total_grad > 0 else float("nan")
     # second moment of the normal distance, weighted by |grad c|, out to 10 eps (the logistic
     # tails beyond hold 0.3 % of its variance) or 4 cells, whichever is farther
     sizes = contour.element_sizes
@@ -512,12 +563,14 @@ def _metrics(work: _Work, max_samples: int):
     dist[used] = _signed_distance(work.split.coordinates[used], work.split.values[used], contour,
                                   mesh.plane_axes, work.level, bound)
     known &= np.isfinite(dist)
-    d = dist[work.split.simplices]
-    inside = (weight > 0) & np.all(np.isfinite(d), axis=1)
-    d, wi = d[inside], weight[inside]
-    m0 = float(wi.sum())
-    m1 = float((wi * d.mean(axis=1)).sum())
-    m2 = float((gnorm[inside] * _quadratic_integral(vol[inside], d, d)).sum())
+    m0 = m1 = m2 = 0.0
+    for part in _chunks(work.split.simplices.shape[0]):
+        d = dist[work.split.simplices[part]]
+        inside = (weight[part] > 0) & np.all(np.isfinite(d), axis=1)
+        d, wi = d[inside], weight[part][inside]
+        m0 += float(wi.sum())
+        m1 += float((wi * d.mean(axis=1)).sum())
+        m2 += float((gnorm[part][inside] * _quadratic_integral(vol[part][inside], d, d)).sum())
     variance = m2 / m0 - (m1 / m0) ** 2 if m0 > 0 else float("nan")
     # cells of the contour
     g_el = cell_gradient(mesh, work.clipped, cells=contour.cells)

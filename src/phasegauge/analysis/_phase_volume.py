@@ -10,6 +10,8 @@ from ..indicator import Indicator
 from ..mesh import Mesh
 from ._cross_sections import field_location
 from ._segregation import cell_values
+from ._sums import dot
+
 
 __all__ = ["boundedness", "conservation_metrics", "volume_drift", "drift_columns",
            "open_boundary_flux"]
@@ -47,7 +49,7 @@ def boundedness(mesh: Mesh, indicator) -> dict:
     excess = np.maximum(0.0, np.maximum(c[good] - 1.0, -c[good]))
     return {"c_min": float(finite.min()) if finite.size else np.nan,
             "c_max": float(finite.max()) if finite.size else np.nan,
-            "overshoot_volume": float(np.dot(excess, mesh.cell_measures[good])),
+            "overshoot_volume": float(dot(excess, mesh.cell_measures[good])),
             "nonfinite_values": nonfinite}
 
 
@@ -91,7 +93,7 @@ def conservation_metrics(mesh: Mesh, indicator, *, densities=None) -> dict:
     c = cell_values(mesh, indicator)
     measures = mesh.cell_measures
     good = np.isfinite(c)
-    phase_volume = float(np.dot(c[good], measures[good]))
+    phase_volume = float(dot(c[good], measures[good]))
     out = {"phase_volume": phase_volume, "domain_volume": float(mesh.total_measure),
            "nonfinite_volume": float(measures[~good].sum())}
     if rho is not None:
@@ -280,7 +282,7 @@ def open_boundary_flux(mesh: Mesh, velocity, c=None, *, tolerance: float = 1e-6,
     speed = float(np.nanmax(np.linalg.norm(u, axis=-1), initial=0.0))
     is_open = np.any(np.abs(un) > tolerance * speed, axis=1) if speed > 0 else np.zeros(len(un), bool)
     out = {"open_boundary": bool(is_open.any()), "open_boundary_area": float(measure[is_open].sum()),
-           "boundary_outflow": float(np.dot(measure, un.mean(axis=1)))}
+           "boundary_outflow": float(dot(measure, un.mean(axis=1)))}
     if c is not None:
         if c_location == "point":
             cv = c_values[pieces]
@@ -288,5 +290,5 @@ def open_boundary_flux(mesh: Mesh, velocity, c=None, *, tolerance: float = 1e-6,
             cv = np.repeat(c_values[owners][:, None], k, axis=1)
         cv = np.where(np.isfinite(cv), cv, 0.0)
         product = (np.einsum("nk,nk->n", cv, un) + cv.sum(axis=1) * un.sum(axis=1)) / (k * (k + 1))
-        out["boundary_phase_outflow"] = float(np.dot(measure, product))
+        out["boundary_phase_outflow"] = float(dot(measure, product))
     return out

@@ -9,6 +9,8 @@ from ..errors import OptionError
 from ..indicator import Indicator
 from ..mesh import Mesh
 from ._simplices import box_fractions
+from ._sums import dot
+
 
 __all__ = ["mixing_metrics", "mixing_length", "segregation_scale", "MIXED_RANGE"]
 
@@ -55,8 +57,8 @@ def _intensity(weights: np.ndarray, c: np.ndarray) -> tuple[float, float]:
     total = weights.sum()
     if total <= 0:
         return np.nan, np.nan
-    mean = float(np.dot(weights, c) / total)
-    variance = float(np.dot(weights, (c - mean) ** 2) / total)
+    mean = float(dot(weights, c) / total)
+    variance = float(dot(weights, (c - mean) ** 2) / total)
     spread = mean * (1.0 - mean)
     return mean, (variance / spread if spread > 0 else np.nan)
 

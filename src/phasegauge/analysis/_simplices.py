@@ -32,16 +32,29 @@ _FLAT = 1e-10
 
 
 def cell_extent(mesh: Mesh, axis: int) -> tuple[np.ndarray, np.ndarray]:
-    """Lowest and highest corner coordinate of every cell along analysis axis ``axis``."""
-    lo = np.empty(mesh.n_cells)
-    hi = np.empty(mesh.n_cells)
-    x = mesh.coordinates[:, axis]
-    for block, start in zip(mesh.blocks, mesh.block_offsets[:-1]):
-        values = x[block.connectivity]
-        sl = slice(int(start), int(start) + len(block))
-        lo[sl] = values.min(axis=1)
-        hi[sl] = values.max(axis=1)
-    return lo, hi
+    """Lowest and highest corner coordinate of every cell along analysis axis ``axis``.
+
+    Mesh-only: computed once per mesh and axis, then reused (do not modify the arrays).
+    """
+    from ._contour import _corner_extremes
+
+    return mesh.memo(("cell_extent", int(axis)),
+                     lambda: _corner_extremes(mesh, np.ascontiguousarray(mesh.coordinates[:, axis])))
+
+
+def _flat_cells(mesh: Mesh) -> list:
+    """Per block, True for cells whose quad faces are all flat (cached per mesh); None for simplices."""
+
+    def compute():
+        out = []
+        for block in mesh.blocks:
+            if block.cell_type in ("hexahedron", "wedge", "pyramid"):
+                out.append(_flat_faces(block.cell_type, mesh.coordinates[block.connectivity]))
+            else:
+                out.append(None)
+        return out
+
+    return mesh.memo("flat_cells", compute)
 
 
 def _flat_faces(cell_type: str, X: np.ndarray) -> np.ndarray:
@@ -57,17 +70,23 @@ def _flat_faces(cell_type: str, X: np.ndarray) -> np.ndarray:
     return flat
 
 
-def _block_simplices(cell_type: str, S: np.ndarray, dim: int) -> list:
-    """Simplices of cells whose corner states are S (n, k, q), as (simplices, cell rows) pairs."""
+def _block_simplices(cell_type: str, S: np.ndarray, dim: int, flat: np.ndarray | None = None) -> list:
+    """Simplices of cells whose corner states are S (n, k, q), as (simplices, cell rows) pairs.
+
+    ``flat`` (n,) tells which cells have only flat quad faces (computed from S when None).
+    """
     rows = np.arange(S.shape[0])
     if cell_type == "polygon":
         return [(S[:, [0, i, i + 1]], rows) for i in range(1, S.shape[1] - 1)]
-    if cell_type in ("triangle", "quad", "tetra"):
+    if cell_type in ("triangle", "tetra"):
+        return [(S, rows)]  # already simplices: no copy
+    if cell_type == "quad":
         return [(S[:, list(local)], rows) for local in _SPLIT[cell_type]]
     # hexahedra, wedges, pyramids: with flat faces the few simplices of the table; otherwise a
     # tetrahedron from the cell centre to every face triangle, quad faces split in four about
     # their centre, so the split conforms between neighbours even where a face is not flat
-    flat = _flat_faces(cell_type, S[:, :, :dim])
+    if flat is None:
+        flat = _flat_faces(cell_type, S[:, :, :dim])
     out = [(S[flat][:, list(local)], rows[flat]) for local in _SPLIT[cell_type]]
     bent = ~flat
     if not bent.any():
@@ -114,13 +133,16 @@ def split_cells(mesh: Mesh, cells: np.ndarray, point_state: np.ndarray) -> tuple
     Coordinates must be the first ``dimension`` columns of ``point_state``.
     """
     pieces, parents = [], []
-    for block, start, stop in zip(mesh.blocks, mesh.block_offsets[:-1], mesh.block_offsets[1:]):
+    flat_cells = _flat_cells(mesh)
+    for block, start, stop, flat in zip(mesh.blocks, mesh.block_offsets[:-1], mesh.block_offsets[1:],
+                                        flat_cells):
         a, b = np.searchsorted(cells, [start, stop])
         if a == b:
             continue
         chosen = cells[a:b]
         S = point_state[block.connectivity[chosen - start]]
-        for simplices, rows in _block_simplices(block.cell_type, S, mesh.dimension):
+        block_flat = None if flat is None else flat[chosen - start]
+        for simplices, rows in _block_simplices(block.cell_type, S, mesh.dimension, block_flat):
             pieces.append(simplices)
             parents.append(chosen[rows])
     if not pieces:
