@@ -790,13 +790,22 @@ def _mesh_change_records(series, done) -> list:
                             "across a change includes any remapping of the solution", os.fspath(series.path))]
 
 
+def _known_mesh(signature: str):
+    """A mesh this process already built for the steps (its caches are reused), or None."""
+    for opened in _SERIES.values():
+        mesh = getattr(opened, "_mesh", None)
+        if mesh is not None and mesh.signature == signature:
+            return mesh
+    return None
+
+
 def _track(series, done, options):
     from .analysis.tracking import DropletTracker
 
     tracker = DropletTracker(ignore_remerge_within=options.ignore_remerge_within, periodic=options.periodic)
     meshes = {}
     for r in done:
-        mesh = meshes.get(r.mesh_signature)
+        mesh = meshes.get(r.mesh_signature) or _known_mesh(r.mesh_signature)
         if mesh is None:
             with warnings.catch_warnings():  # reported once, from the steps
                 warnings.simplefilter("ignore", PhasegaugeWarning)
