@@ -256,8 +256,8 @@ def test_truncated_legacy_files_refused(tmp_path):
     # VTK's reader, which crashed the process; and a truncated binary structured file gave garbage values
     import pyvista as pv
 
-    m = grid_mesh((4, 4), kind="triangle")
-    path = _write(tmp_path / "u.vtk", m, {"phi": np.zeros(m.n_points)}, binary=True)
+    tri = grid_mesh((4, 4), kind="triangle")
+    path = _write(tmp_path / "u.vtk", tri, {"phi": np.zeros(tri.n_points)}, binary=True)
     data = path.read_bytes()
     path.write_bytes(data[: int(len(data) * 0.7)])
     with pytest.raises(UnreadableFileError, match="u.vtk"):
