@@ -1,11 +1,9 @@
 """The compare command end to end: two conventions, two meshes, one report."""
 
 import json
-import os
 
 import numpy as np
 import pandas as pd
-import pytest
 from click.testing import CliRunner
 
 from phasegauge.cli import main

@@ -247,7 +247,7 @@ def test_partly_nan_and_inf_field_warns_and_is_recorded(tmp_path, location):
     path = _good(tmp_path / "p.vtu", **{location: {"alpha": values}})
     code, err, _ = _cli(["measure", path, "-f", "alpha", "-o", tmp_path / "o"] + FAST)
     assert code == 0
-    assert _warning_lines(err) == [f"phasegauge: warning: p.vtu, step 0: field 'alpha' has 8 NaN or Inf values; "
+    assert _warning_lines(err) == ["phasegauge: warning: p.vtu, step 0: field 'alpha' has 8 NaN or Inf values; "
                                    "they are left out of every integral"]
     manifest = json.loads((tmp_path / "o" / "manifest.json").read_text())
     assert any("8 NaN or Inf" in w for w in manifest["warnings"])

@@ -9,7 +9,6 @@ from __future__ import annotations
 
 import json
 import os
-import sys
 import warnings
 
 import click

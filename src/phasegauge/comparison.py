@@ -9,8 +9,6 @@ the rising-bubble benchmark (Hysing et al. 2009) or a reference table.
 
 from __future__ import annotations
 
-import dataclasses
-import os
 import time
 from dataclasses import dataclass
 

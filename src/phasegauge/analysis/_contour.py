@@ -200,7 +200,6 @@ def split_cells(mesh: Mesh, values: np.ndarray, active: np.ndarray | None = None
     extra_x, extra_v = [], []
     n_extra = 0
     simplices, owners = [], []
-    quad_faces, quad_owner_rows = [], []  # 3D quad faces to split, with (tets so far)
 
     def corner_mean(array, corners):
         # the corners summed in order, then divided: as array[corners].mean(axis=1), without
