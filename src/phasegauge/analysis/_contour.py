@@ -151,12 +151,33 @@ class SimplexSplit:
         Vertex ids of each triangle (2D) or tetrahedron (3D).
     owner : ndarray of shape (n_simplices,)
         The mesh cell each simplex belongs to.
+    centres : tuple of (ids, corners) pairs
+        The added vertices: ``ids`` (n,) their vertex ids, ``corners`` (n, k)
+        the mesh points whose mean they are (coordinates and values alike).
+        Empty when the split added none.
     """
 
     coordinates: np.ndarray
     values: np.ndarray
     simplices: np.ndarray
     owner: np.ndarray
+    centres: tuple = ()
+
+    def centre_means(self, point_values: np.ndarray) -> np.ndarray:
+        """Values at every vertex from values at the mesh points, centres as their corners' means.
+
+        ``point_values`` has shape (n_points,) (the mesh points come first among
+        the vertices); the result has shape (n_vertices,).
+        """
+        n = point_values.shape[0]
+        out = np.empty(self.coordinates.shape[0], dtype=np.result_type(point_values, np.float64))
+        out[:n] = point_values
+        for ids, corners in self.centres:
+            total = point_values[corners[:, 0]].astype(np.float64)
+            for j in range(1, corners.shape[1]):
+                total += point_values[corners[:, j]]
+            out[ids] = total / corners.shape[1]
+        return out
 
     @property
     def measures(self) -> np.ndarray:
@@ -197,7 +218,7 @@ def split_cells(mesh: Mesh, values: np.ndarray, active: np.ndarray | None = None
     X = mesh.coordinates
     dim = mesh.dimension
     n_points = mesh.n_points
-    extra_x, extra_v = [], []
+    extra_x, extra_v, centres = [], [], []
     n_extra = 0
     simplices, owners = [], []
 
@@ -215,6 +236,7 @@ def split_cells(mesh: Mesh, values: np.ndarray, active: np.ndarray | None = None
         extra_v.append(corner_mean(values, corners))
         ids = n_points + n_extra + np.arange(corners.shape[0])
         n_extra += corners.shape[0]
+        centres.append((ids, corners))
         return ids
 
     pending = []  # 3D: (face corners (n,4), apex ids (n,), owner (n,), face ids (n,)) split after dedupe
@@ -281,7 +303,7 @@ def split_cells(mesh: Mesh, values: np.ndarray, active: np.ndarray | None = None
     else:
         simp = np.zeros((0, dim + 1), dtype=np.int64)
         owner = np.zeros(0, dtype=np.int64)
-    return SimplexSplit(coordinates, vals, simp, owner)
+    return SimplexSplit(coordinates, vals, simp, owner, tuple(centres))
 
 
 def _quad_face_ids(mesh: Mesh) -> list:
