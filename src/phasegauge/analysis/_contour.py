@@ -213,7 +213,11 @@ def split_cells(mesh: Mesh, values: np.ndarray, active: np.ndarray | None = None
     or, for a pyramid, from its apex (4). A centre takes the mean of the
     corner coordinates and values, so a face is split the same way from both
     sides and the piecewise-linear field (and its contour) is conforming on
-    any conforming mesh.
+    any conforming mesh. Hexahedra and wedges whose quad faces are flat, and
+    whose shared quad faces are cut along the same diagonal from both sides by
+    the fixed tables of :mod:`._simplices` (6 and 3 tetrahedra, no centres),
+    use those tables instead (as on a regular grid); the split stays
+    conforming (:func:`_few_simplex_cells`).
     """
     X = mesh.coordinates
     dim = mesh.dimension
@@ -255,6 +259,18 @@ def split_cells(mesh: Mesh, values: np.ndarray, active: np.ndarray | None = None
             block_faces = _quad_face_ids(mesh)[b]
             if local_ids is not None:
                 block_faces = block_faces[local_ids]
+        if kind in ("hexahedron", "wedge"):
+            few = _few_simplex_cells(mesh)[b]
+            few = few if local_ids is None else few[local_ids]
+            if few.any():
+                from ._simplices import _SPLIT
+
+                for local in _SPLIT[kind]:
+                    simplices.append(conn[few][:, list(local)])
+                    owners.append(ids[few])
+                conn, ids, block_faces = conn[~few], ids[~few], block_faces[~few]
+                if len(ids) == 0:
+                    continue
         if kind in ("triangle", "tetra"):
             simplices.append(conn)
             owners.append(ids)
@@ -304,6 +320,80 @@ def split_cells(mesh: Mesh, values: np.ndarray, active: np.ndarray | None = None
         simp = np.zeros((0, dim + 1), dtype=np.int64)
         owner = np.zeros(0, dtype=np.int64)
     return SimplexSplit(coordinates, vals, simp, owner, tuple(centres))
+
+
+def _table_diagonals(kind: str) -> list:
+    """Per quad face of ``kind`` (``_HEX_FACES`` / ``_WEDGE_QUADS`` order), the local diagonal
+    that the few-simplex table of :mod:`._simplices` cuts it along."""
+    from ._simplices import _SPLIT
+
+    faces = _HEX_FACES if kind == "hexahedron" else _WEDGE_QUADS
+    out = []
+    for f in faces:
+        on = any(f[0] in t and f[2] in t for t in _SPLIT[kind])
+        out.append((f[0], f[2]) if on else (f[1], f[3]))
+    return out
+
+
+def _few_simplex_cells(mesh: Mesh) -> list:
+    """Per block, True for hexahedra / wedges split by the fixed few-simplex table (cached per mesh).
+
+    A cell qualifies when its quad faces are flat and every quad face it shares
+    is shared with a qualifying cell that cuts it along the same diagonal (by
+    global point ids), so the split stays conforming without face centres;
+    others (and their neighbours, as far as needed) keep the centred split.
+    None for blocks of other types.
+    """
+
+    def compute():
+        from ._simplices import _flat_cells
+
+        flat = _flat_cells(mesh)
+        face_ids = _quad_face_ids(mesh)
+        n_pts = np.int64(max(mesh.n_points, 1))
+        occ_face, occ_cell, occ_key = [], [], []
+        candidate = np.zeros(mesh.n_cells, dtype=bool)
+        for b, (block, start) in enumerate(zip(mesh.blocks, mesh.block_offsets[:-1])):
+            if face_ids[b] is None:
+                continue
+            cells = np.arange(start, start + len(block))
+            conn = block.connectivity
+            if block.cell_type in ("hexahedron", "wedge"):
+                candidate[cells] = flat[b]
+                diagonals = _table_diagonals(block.cell_type)
+            else:
+                diagonals = [(0, 2)]  # a pyramid base: never a candidate, the key is unused
+            for j, (i, k) in enumerate(diagonals):
+                a, c = conn[:, i].astype(np.int64), conn[:, k].astype(np.int64)
+                occ_face.append(face_ids[b][:, j])
+                occ_cell.append(cells)
+                occ_key.append(np.minimum(a, c) * n_pts + np.maximum(a, c))
+        if not occ_face:
+            return [None] * len(mesh.blocks)
+        face = np.concatenate(occ_face)
+        cell = np.concatenate(occ_cell)
+        key = np.concatenate(occ_key)
+        n_faces = int(face.max()) + 1
+        sides = np.bincount(face, minlength=n_faces)
+        while True:
+            cand = candidate[cell]
+            n_cand = np.bincount(face, weights=cand, minlength=n_faces)
+            first = np.full(n_faces, -1, dtype=np.int64)
+            first[face[cand]] = key[cand]
+            mismatch = np.zeros(n_faces, dtype=bool)
+            mismatch[face[cand & (first[face] != key)]] = True
+            good = (sides == 1) | ((n_cand == 2) & ~mismatch)
+            drop = cand & ~good[face]
+            if not drop.any():
+                break
+            candidate[cell[drop]] = False
+        out = []
+        for b, (block, start) in enumerate(zip(mesh.blocks, mesh.block_offsets[:-1])):
+            out.append(candidate[start:start + len(block)].copy()
+                       if block.cell_type in ("hexahedron", "wedge") else None)
+        return out
+
+    return mesh.memo("few_simplex_cells", compute)
 
 
 def _quad_face_ids(mesh: Mesh) -> list:
