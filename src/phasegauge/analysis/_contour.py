@@ -215,9 +215,9 @@ def split_cells(mesh: Mesh, values: np.ndarray, active: np.ndarray | None = None
     sides and the piecewise-linear field (and its contour) is conforming on
     any conforming mesh. Hexahedra and wedges whose quad faces are flat, and
     whose shared quad faces are cut along the same diagonal from both sides by
-    the fixed tables of :mod:`._simplices` (6 and 3 tetrahedra, no centres),
-    use those tables instead (as on a regular grid); the split stays
-    conforming (:func:`_few_simplex_cells`).
+    the 6-tetrahedra table of :mod:`._simplices` (hexahedra) or through their
+    lowest point id (wedges, 3 tetrahedra; Dompierre et al. 1999), are split
+    so, without centres; the split stays conforming (:func:`_few_simplex_cells`).
     """
     X = mesh.coordinates
     dim = mesh.dimension
@@ -265,9 +265,15 @@ def split_cells(mesh: Mesh, values: np.ndarray, active: np.ndarray | None = None
             if few.any():
                 from ._simplices import _SPLIT
 
-                for local in _SPLIT[kind]:
-                    simplices.append(conn[few][:, list(local)])
-                    owners.append(ids[few])
+                pieces = (_SPLIT[kind] if kind == "hexahedron" else None)
+                if pieces is None:
+                    for tets in _wedge_min_vertex_split(conn[few]):
+                        simplices.append(tets)
+                        owners.append(ids[few])
+                else:
+                    for local in pieces:
+                        simplices.append(conn[few][:, list(local)])
+                        owners.append(ids[few])
                 conn, ids, block_faces = conn[~few], ids[~few], block_faces[~few]
                 if len(ids) == 0:
                     continue
@@ -335,6 +341,31 @@ def _table_diagonals(kind: str) -> list:
     return out
 
 
+#: wedge corner orders that bring local corner i to position 0 (rotations, then top and bottom swapped)
+_WEDGE_TURNS = np.array([(0, 1, 2, 3, 4, 5), (1, 2, 0, 4, 5, 3), (2, 0, 1, 5, 3, 4),
+                         (3, 4, 5, 0, 1, 2), (4, 5, 3, 1, 2, 0), (5, 3, 4, 2, 0, 1)])
+
+
+def _wedge_min_vertex_split(conn: np.ndarray) -> list:
+    """Three tetrahedra per wedge, each quad face cut along the diagonal through its lowest point id.
+
+    The rule depends on global ids only, so two wedges sharing a face cut it
+    alike. Returns three (n, 4) arrays of point ids.
+
+    References
+    ----------
+    .. [1] Dompierre, J., Labbe, P., Vallet, M.-G. and Camarero, R. (1999), "How
+       to subdivide pyramids, prisms and hexahedra into tetrahedra", 8th
+       International Meshing Roundtable.
+    """
+    rows = np.arange(conn.shape[0])
+    q = conn[rows[:, None], _WEDGE_TURNS[np.argmin(conn, axis=1)]]  # lowest id at corner 0
+    via15 = np.minimum(q[:, 1], q[:, 5]) < np.minimum(q[:, 2], q[:, 4])
+    first = np.where(via15[:, None], q[:, [0, 1, 2, 5]], q[:, [0, 1, 2, 4]])
+    second = np.where(via15[:, None], q[:, [0, 1, 5, 4]], q[:, [0, 4, 2, 5]])
+    return [first, second, q[:, [0, 4, 5, 3]]]
+
+
 def _few_simplex_cells(mesh: Mesh) -> list:
     """Per block, True for hexahedra / wedges split by the fixed few-simplex table (cached per mesh).
 
@@ -364,7 +395,13 @@ def _few_simplex_cells(mesh: Mesh) -> list:
             else:
                 diagonals = [(0, 2)]  # a pyramid base: never a candidate, the key is unused
             for j, (i, k) in enumerate(diagonals):
-                a, c = conn[:, i].astype(np.int64), conn[:, k].astype(np.int64)
+                if block.cell_type == "wedge":  # the diagonal through the face's lowest point id
+                    corners = conn[:, list(_WEDGE_QUADS[j])].astype(np.int64)
+                    low = np.argmin(corners, axis=1)
+                    rows = np.arange(corners.shape[0])
+                    a, c = corners[rows, low], corners[rows, (low + 2) % 4]
+                else:
+                    a, c = conn[:, i].astype(np.int64), conn[:, k].astype(np.int64)
                 occ_face.append(face_ids[b][:, j])
                 occ_cell.append(cells)
                 occ_key.append(np.minimum(a, c) * n_pts + np.maximum(a, c))
