@@ -217,7 +217,8 @@ def split_cells(mesh: Mesh, values: np.ndarray, active: np.ndarray | None = None
     whose shared quad faces are cut along the same diagonal from both sides by
     the 6-tetrahedra table of :mod:`._simplices` (hexahedra) or through their
     lowest point id (wedges, 3 tetrahedra; Dompierre et al. 1999), are split
-    so, without centres; the split stays conforming (:func:`_few_simplex_cells`).
+    so, without centres, when that holds for all of them in the mesh; the
+    split stays conforming (:func:`_few_simplex_cells`).
     """
     X = mesh.coordinates
     dim = mesh.dimension
@@ -369,11 +370,11 @@ def _wedge_min_vertex_split(conn: np.ndarray) -> list:
 def _few_simplex_cells(mesh: Mesh) -> list:
     """Per block, True for hexahedra / wedges split by the fixed few-simplex table (cached per mesh).
 
-    A cell qualifies when its quad faces are flat and every quad face it shares
-    is shared with a qualifying cell that cuts it along the same diagonal (by
-    global point ids), so the split stays conforming without face centres;
-    others (and their neighbours, as far as needed) keep the centred split.
-    None for blocks of other types.
+    All hexahedra and wedges qualify when their quad faces are flat and every
+    quad face shared is shared between two of them that cut it along the same
+    diagonal (by global point ids), so the split stays conforming without face
+    centres; otherwise none does (all keep the centred split). None for blocks
+    of other types.
     """
 
     def compute():
@@ -412,18 +413,17 @@ def _few_simplex_cells(mesh: Mesh) -> list:
         key = np.concatenate(occ_key)
         n_faces = int(face.max()) + 1
         sides = np.bincount(face, minlength=n_faces)
-        while True:
-            cand = candidate[cell]
-            n_cand = np.bincount(face, weights=cand, minlength=n_faces)
-            first = np.full(n_faces, -1, dtype=np.int64)
-            first[face[cand]] = key[cand]
-            mismatch = np.zeros(n_faces, dtype=bool)
-            mismatch[face[cand & (first[face] != key)]] = True
-            good = (sides == 1) | ((n_cand == 2) & ~mismatch)
-            drop = cand & ~good[face]
-            if not drop.any():
-                break
-            candidate[cell[drop]] = False
+        cand = candidate[cell]
+        n_cand = np.bincount(face, weights=cand, minlength=n_faces)
+        first = np.full(n_faces, -1, dtype=np.int64)
+        first[face[cand]] = key[cand]
+        mismatch = np.zeros(n_faces, dtype=bool)
+        mismatch[face[cand & (first[face] != key)]] = True
+        good = (sides == 1) | ((n_cand == 2) & ~mismatch)
+        if (cand & ~good[face]).any():
+            # a cell that cannot take the table would force its neighbours off it, and theirs,
+            # layer by layer: all or nothing keeps this one pass
+            candidate[:] = False
         out = []
         for b, (block, start) in enumerate(zip(mesh.blocks, mesh.block_offsets[:-1])):
             out.append(candidate[start:start + len(block)].copy()
