@@ -151,12 +151,33 @@ class SimplexSplit:
         Vertex ids of each triangle (2D) or tetrahedron (3D).
     owner : ndarray of shape (n_simplices,)
         The mesh cell each simplex belongs to.
+    centres : tuple of (ids, corners) pairs
+        The added vertices: ``ids`` (n,) their vertex ids, ``corners`` (n, k)
+        the mesh points whose mean they are (coordinates and values alike).
+        Empty when the split added none.
     """
 
     coordinates: np.ndarray
     values: np.ndarray
     simplices: np.ndarray
     owner: np.ndarray
+    centres: tuple = ()
+
+    def centre_means(self, point_values: np.ndarray) -> np.ndarray:
+        """Values at every vertex from values at the mesh points, centres as their corners' means.
+
+        ``point_values`` has shape (n_points,) (the mesh points come first among
+        the vertices); the result has shape (n_vertices,).
+        """
+        n = point_values.shape[0]
+        out = np.empty(self.coordinates.shape[0], dtype=np.result_type(point_values, np.float64))
+        out[:n] = point_values
+        for ids, corners in self.centres:
+            total = point_values[corners[:, 0]].astype(np.float64)
+            for j in range(1, corners.shape[1]):
+                total += point_values[corners[:, j]]
+            out[ids] = total / corners.shape[1]
+        return out
 
     @property
     def measures(self) -> np.ndarray:
@@ -192,12 +213,17 @@ def split_cells(mesh: Mesh, values: np.ndarray, active: np.ndarray | None = None
     or, for a pyramid, from its apex (4). A centre takes the mean of the
     corner coordinates and values, so a face is split the same way from both
     sides and the piecewise-linear field (and its contour) is conforming on
-    any conforming mesh.
+    any conforming mesh. Hexahedra and wedges whose quad faces are flat, and
+    whose shared quad faces are cut along the same diagonal from both sides by
+    the 6-tetrahedra table of :mod:`._simplices` (hexahedra) or through their
+    lowest point id (wedges, 3 tetrahedra; Dompierre et al. 1999), are split
+    so, without centres, when that holds for all of them in the mesh; the
+    split stays conforming (:func:`_few_simplex_cells`).
     """
     X = mesh.coordinates
     dim = mesh.dimension
     n_points = mesh.n_points
-    extra_x, extra_v = [], []
+    extra_x, extra_v, centres = [], [], []
     n_extra = 0
     simplices, owners = [], []
 
@@ -215,6 +241,7 @@ def split_cells(mesh: Mesh, values: np.ndarray, active: np.ndarray | None = None
         extra_v.append(corner_mean(values, corners))
         ids = n_points + n_extra + np.arange(corners.shape[0])
         n_extra += corners.shape[0]
+        centres.append((ids, corners))
         return ids
 
     pending = []  # 3D: (face corners (n,4), apex ids (n,), owner (n,), face ids (n,)) split after dedupe
@@ -233,6 +260,24 @@ def split_cells(mesh: Mesh, values: np.ndarray, active: np.ndarray | None = None
             block_faces = _quad_face_ids(mesh)[b]
             if local_ids is not None:
                 block_faces = block_faces[local_ids]
+        if kind in ("hexahedron", "wedge"):
+            few = _few_simplex_cells(mesh)[b]
+            few = few if local_ids is None else few[local_ids]
+            if few.any():
+                from ._simplices import _SPLIT
+
+                pieces = (_SPLIT[kind] if kind == "hexahedron" else None)
+                if pieces is None:
+                    for tets in _wedge_min_vertex_split(conn[few]):
+                        simplices.append(tets)
+                        owners.append(ids[few])
+                else:
+                    for local in pieces:
+                        simplices.append(conn[few][:, list(local)])
+                        owners.append(ids[few])
+                conn, ids, block_faces = conn[~few], ids[~few], block_faces[~few]
+                if len(ids) == 0:
+                    continue
         if kind in ("triangle", "tetra"):
             simplices.append(conn)
             owners.append(ids)
@@ -281,7 +326,111 @@ def split_cells(mesh: Mesh, values: np.ndarray, active: np.ndarray | None = None
     else:
         simp = np.zeros((0, dim + 1), dtype=np.int64)
         owner = np.zeros(0, dtype=np.int64)
-    return SimplexSplit(coordinates, vals, simp, owner)
+    return SimplexSplit(coordinates, vals, simp, owner, tuple(centres))
+
+
+def _table_diagonals(kind: str) -> list:
+    """Per quad face of ``kind`` (``_HEX_FACES`` / ``_WEDGE_QUADS`` order), the local diagonal
+    that the few-simplex table of :mod:`._simplices` cuts it along."""
+    from ._simplices import _SPLIT
+
+    faces = _HEX_FACES if kind == "hexahedron" else _WEDGE_QUADS
+    out = []
+    for f in faces:
+        on = any(f[0] in t and f[2] in t for t in _SPLIT[kind])
+        out.append((f[0], f[2]) if on else (f[1], f[3]))
+    return out
+
+
+#: wedge corner orders that bring local corner i to position 0 (rotations, then top and bottom swapped)
+_WEDGE_TURNS = np.array([(0, 1, 2, 3, 4, 5), (1, 2, 0, 4, 5, 3), (2, 0, 1, 5, 3, 4),
+                         (3, 4, 5, 0, 1, 2), (4, 5, 3, 1, 2, 0), (5, 3, 4, 2, 0, 1)])
+
+
+def _wedge_min_vertex_split(conn: np.ndarray) -> list:
+    """Three tetrahedra per wedge, each quad face cut along the diagonal through its lowest point id.
+
+    The rule depends on global ids only, so two wedges sharing a face cut it
+    alike. Returns three (n, 4) arrays of point ids.
+
+    References
+    ----------
+    .. [1] Dompierre, J., Labbe, P., Vallet, M.-G. and Camarero, R. (1999), "How
+       to subdivide pyramids, prisms and hexahedra into tetrahedra", 8th
+       International Meshing Roundtable.
+    """
+    rows = np.arange(conn.shape[0])
+    q = conn[rows[:, None], _WEDGE_TURNS[np.argmin(conn, axis=1)]]  # lowest id at corner 0
+    via15 = np.minimum(q[:, 1], q[:, 5]) < np.minimum(q[:, 2], q[:, 4])
+    first = np.where(via15[:, None], q[:, [0, 1, 2, 5]], q[:, [0, 1, 2, 4]])
+    second = np.where(via15[:, None], q[:, [0, 1, 5, 4]], q[:, [0, 4, 2, 5]])
+    return [first, second, q[:, [0, 4, 5, 3]]]
+
+
+def _few_simplex_cells(mesh: Mesh) -> list:
+    """Per block, True for hexahedra / wedges split by the fixed few-simplex table (cached per mesh).
+
+    All hexahedra and wedges qualify when their quad faces are flat and every
+    quad face shared is shared between two of them that cut it along the same
+    diagonal (by global point ids), so the split stays conforming without face
+    centres; otherwise none does (all keep the centred split). None for blocks
+    of other types.
+    """
+
+    def compute():
+        from ._simplices import _flat_cells
+
+        flat = _flat_cells(mesh)
+        face_ids = _quad_face_ids(mesh)
+        n_pts = np.int64(max(mesh.n_points, 1))
+        occ_face, occ_cell, occ_key = [], [], []
+        candidate = np.zeros(mesh.n_cells, dtype=bool)
+        for b, (block, start) in enumerate(zip(mesh.blocks, mesh.block_offsets[:-1])):
+            if face_ids[b] is None:
+                continue
+            cells = np.arange(start, start + len(block))
+            conn = block.connectivity
+            if block.cell_type in ("hexahedron", "wedge"):
+                candidate[cells] = flat[b]
+                diagonals = _table_diagonals(block.cell_type)
+            else:
+                diagonals = [(0, 2)]  # a pyramid base: never a candidate, the key is unused
+            for j, (i, k) in enumerate(diagonals):
+                if block.cell_type == "wedge":  # the diagonal through the face's lowest point id
+                    corners = conn[:, list(_WEDGE_QUADS[j])].astype(np.int64)
+                    low = np.argmin(corners, axis=1)
+                    rows = np.arange(corners.shape[0])
+                    a, c = corners[rows, low], corners[rows, (low + 2) % 4]
+                else:
+                    a, c = conn[:, i].astype(np.int64), conn[:, k].astype(np.int64)
+                occ_face.append(face_ids[b][:, j])
+                occ_cell.append(cells)
+                occ_key.append(np.minimum(a, c) * n_pts + np.maximum(a, c))
+        if not occ_face:
+            return [None] * len(mesh.blocks)
+        face = np.concatenate(occ_face)
+        cell = np.concatenate(occ_cell)
+        key = np.concatenate(occ_key)
+        n_faces = int(face.max()) + 1
+        sides = np.bincount(face, minlength=n_faces)
+        cand = candidate[cell]
+        n_cand = np.bincount(face, weights=cand, minlength=n_faces)
+        first = np.full(n_faces, -1, dtype=np.int64)
+        first[face[cand]] = key[cand]
+        mismatch = np.zeros(n_faces, dtype=bool)
+        mismatch[face[cand & (first[face] != key)]] = True
+        good = (sides == 1) | ((n_cand == 2) & ~mismatch)
+        if (cand & ~good[face]).any():
+            # a cell that cannot take the table would force its neighbours off it, and theirs,
+            # layer by layer: all or nothing keeps this one pass
+            candidate[:] = False
+        out = []
+        for b, (block, start) in enumerate(zip(mesh.blocks, mesh.block_offsets[:-1])):
+            out.append(candidate[start:start + len(block)].copy()
+                       if block.cell_type in ("hexahedron", "wedge") else None)
+        return out
+
+    return mesh.memo("few_simplex_cells", compute)
 
 
 def _quad_face_ids(mesh: Mesh) -> list:

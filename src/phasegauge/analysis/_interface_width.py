@@ -309,6 +309,26 @@ def _signed_distance(points: np.ndarray, values: np.ndarray, contour: Contour, p
     return np.where(values > level, dist, -dist)
 
 
+def _vertex_distances(split: SimplexSplit, wanted: np.ndarray, contour: Contour, plane_axes,
+                      level: float, bound: float) -> np.ndarray:
+    """Signed distances at the ``wanted`` split vertices (NaN elsewhere and beyond ``bound``).
+
+    Computed at mesh points only: an added face or cell centre gets the mean of
+    its corners' distances, as it got the mean of their coordinates and values
+    (the same linear map; it differs from the centre's own distance by
+    O(h^2 / R) on an interface of curvature radius R).
+    """
+    n = split.coordinates.shape[0] - sum(ids.size for ids, _ in split.centres)
+    need = wanted[:n].copy()
+    for ids, corners in split.centres:
+        need[corners[wanted[ids]].ravel()] = True
+    used = np.nonzero(need)[0]
+    dist = np.full(n, np.nan)
+    dist[used] = _signed_distance(split.coordinates[used], split.values[used], contour,
+                                  plane_axes, level, bound)
+    return split.centre_means(dist)
+
+
 # --------------------------------------------------------------------------- profile fits
 
 def _fit_patches(group: np.ndarray, n_groups: int, d: np.ndarray, c: np.ndarray):
@@ -558,10 +578,7 @@ def _metrics(work: _Work, max_samples: int):
     bound = max(_MOMENT_RANGE * eps, 4.0 * h_interface) if np.isfinite(eps) else np.inf
     known = np.zeros(work.split.coordinates.shape[0], dtype=bool)
     known[work.split.simplices[weight > 0].ravel()] = True
-    used = np.nonzero(known)[0]
-    dist = np.full(work.split.coordinates.shape[0], np.nan)
-    dist[used] = _signed_distance(work.split.coordinates[used], work.split.values[used], contour,
-                                  mesh.plane_axes, work.level, bound)
+    dist = _vertex_distances(work.split, known, contour, mesh.plane_axes, work.level, bound)
     known &= np.isfinite(dist)
     m0 = m1 = m2 = 0.0
     for part in _chunks(work.split.simplices.shape[0]):
