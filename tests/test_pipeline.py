@@ -253,3 +253,14 @@ def test_segregation_scale_option(tmp_path):
     steps = pd.read_csv(tmp_path / "o" / "steps.csv")
     # two discs of radius 0.15: the scale of segregation is a fraction of the disc size, well above the cell size
     assert ((steps["segregation_scale"] > 1 / 24) & (steps["segregation_scale"] < 0.3)).all()
+
+
+def test_forked_workers_reuse_the_parents_mesh(tmp_path):
+    # the first step runs in this process; workers forked after it find its mesh (and its cached
+    # topology) instead of building it again
+    from phasegauge.io._meshio_adapter import _MESH_POOL
+
+    listing = _moving_disc_series(str(tmp_path), steps=3)
+    before = len(_MESH_POOL)
+    measure(listing, "alpha", workers=2, analyses=("conservation",))
+    assert len(_MESH_POOL) >= min(before + 1, 2)

@@ -698,7 +698,10 @@ def _measure(series, path, options, out, txn, *, workers, scheduler, overwrite, 
 
 
 def _close_open_series() -> None:
+    from .io._meshio_adapter import remember_mesh
+
     for s in _SERIES.values():
+        remember_mesh(getattr(s, "_mesh", None))  # forked workers reuse it with its caches
         s.close()
     _SERIES.clear()
 

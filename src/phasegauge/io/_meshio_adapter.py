@@ -287,6 +287,25 @@ def join_cell_data(mesh: Mesh, cell_data: dict, where: str = "") -> dict:
     return out
 
 
+#: meshes a process has built and keeps for later readers: a worker forked after the first step
+#: finds the parent's mesh here, with its cached measures and topology, instead of rebuilding them
+_MESH_POOL: list = []
+
+
+def remember_mesh(mesh: Mesh | None) -> None:
+    """Keep ``mesh`` (the last two) for readers opened later in this process or its forks."""
+    if mesh is not None and all(m is not mesh for m in _MESH_POOL):
+        _MESH_POOL.append(mesh)
+        del _MESH_POOL[:-2]
+
+
+def _same_mesh(known: list, candidate: Mesh) -> Mesh | None:
+    for mesh in known:
+        if mesh.n_points == candidate.n_points and mesh.same_topology(candidate.points, candidate.blocks):
+            return mesh
+    return None
+
+
 def mesh_and_fields(raw, path: str, previous: Mesh | None = None) -> tuple[Mesh, StepFields]:
     """Turn a meshio mesh into a :class:`Mesh` (reusing ``previous`` when equal) and fields.
 
@@ -299,14 +318,12 @@ def mesh_and_fields(raw, path: str, previous: Mesh | None = None) -> tuple[Mesh,
         candidate = Mesh(raw.points, raw.cells)
     except UnsupportedMeshError as err:
         raise err.with_where(path) from None
-    if previous is not None and previous.n_points == candidate.n_points and previous.same_topology(
-            candidate.points, candidate.blocks):
-        mesh = previous
-    else:
+    known = [m for m in [previous] + _MESH_POOL if m is not None]
+    mesh = _same_mesh(known, candidate)
+    if mesh is None:
         mesh = _checked_mesh(candidate, raw, path)
-        if mesh is not candidate and previous is not None and previous.n_points == mesh.n_points \
-                and previous.same_topology(mesh.points, mesh.blocks):
-            mesh = previous
+        if mesh is not candidate:
+            mesh = _same_mesh(known, mesh) or mesh
     point_data = point_fields(mesh, raw.point_data, where=path)
     cell_data = join_cell_data(mesh, raw.cell_data, where=path)
     field_data = {k: np.asarray(v) for k, v in (raw.field_data or {}).items()}
