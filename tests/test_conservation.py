@@ -4,22 +4,22 @@ import numpy as np
 import pandas as pd
 import pytest
 
+from phasegauge.analysis import conservation
+from phasegauge.analysis.conservation import (
+    boundedness,
+    conservation_metrics,
+    drift_columns,
+    open_boundary_flux,
+    volume_drift,
+)
 from phasegauge.errors import OptionError
 from phasegauge.indicator import make_indicator
+from phasegauge.io import StepFields
 from phasegauge.meshgen import delaunay_mesh, grid_mesh
-from phasegauge.analysis import conservation
-from phasegauge.analysis.conservation import (boundedness, conservation_metrics, drift_columns,
-                                              open_boundary_flux, volume_drift)
 
 KINDS = [("triangle", (8, 6)), ("quad", (8, 6)), ("mixed", (8, 6)), ("polygon", (8, 6)),
          ("tetra", (4, 4, 3)), ("hexahedron", (4, 4, 3)), ("wedge", (4, 4, 3)),
          ("pyramid", (4, 4, 3)), ("mixed", (6, 4, 3))]
-
-
-class _Fields:
-    def __init__(self, point_data=None, cell_data=None):
-        self.point_data = point_data or {}
-        self.cell_data = cell_data or {}
 
 
 def test_public_names_import():
@@ -73,7 +73,7 @@ def test_boundedness_reads_point_data_where_it_lives():
     values = mesh.points[:, 0] * 1.4 - 0.2  # point values from -0.2 to 1.2
     values[0] = np.nan
     with pytest.warns(Warning):
-        indicator = make_indicator(mesh, _Fields(point_data={"phi": values}), "phi")
+        indicator = make_indicator(mesh, StepFields(point_data={"phi": values}), "phi")
     out = boundedness(mesh, indicator)
     assert out["c_min"] == pytest.approx(-0.2) and out["c_max"] == pytest.approx(1.2)
     assert out["nonfinite_values"] == 1

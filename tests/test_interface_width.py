@@ -6,27 +6,24 @@ import numpy as np
 import pandas as pd
 import pytest
 
+from phasegauge.analysis.interface import (
+    METRIC_KEYS,
+    PROFILE_COLUMNS,
+    diffusion_audit,
+    find_interface,
+    interface_metrics,
+    interface_profile_table,
+)
 from phasegauge.errors import OptionError
 from phasegauge.indicator import make_indicator
+from phasegauge.io import StepFields
 from phasegauge.meshgen import grid_mesh
-from phasegauge.analysis.interface import (METRIC_KEYS, PROFILE_COLUMNS, diffusion_audit,
-                                           find_interface,
-                                           interface_metrics, interface_profile_table)
 
 # logistic profile c = 1/2 (1 + tanh(n / (2 eps))) (Olsson & Kreiss 2005): band volume per area
 # over 0.05 < c < 0.95 is 2 eps ln 19 = 5.889 eps (REFERENCES.md [calc])
 BAND = 2 * math.log(19.0)
 ESTIMATORS = ("interface_width", "width_threshold_free", "width_second_moment",
               "width_profile_median")
-
-
-class Fields:
-    def __init__(self, point_data=None, cell_data=None):
-        self.point_data = point_data or {}
-        self.cell_data = cell_data or {}
-
-    def names(self):
-        return list(self.point_data) + list(self.cell_data)
 
 
 def _slab(kind, cells_across):
@@ -42,7 +39,7 @@ def _slab(kind, cells_across):
 def _indicator(mesh, location, function, **kwargs):
     X = mesh.coordinates if location == "point" else mesh.cell_centroids
     values = function(X)
-    fields = Fields(point_data={"c": values}) if location == "point" else Fields(cell_data={"c": values})
+    fields = StepFields(point_data={"c": values}) if location == "point" else StepFields(cell_data={"c": values})
     return make_indicator(mesh, fields, "c", **kwargs)
 
 
@@ -210,7 +207,7 @@ def test_boundedness():
     # c = 1.2 on the left half, -0.1 on the right: overshoot 0.2 * 0.5 + 0.1 * 0.5 (exact)
     mesh = grid_mesh((10, 10), kind="triangle")
     c = np.where(mesh.cell_centroids[:, 0] < 0.5, 1.2, -0.1)
-    ind = make_indicator(mesh, Fields(cell_data={"c": c}), "c", warn=False)
+    ind = make_indicator(mesh, StepFields(cell_data={"c": c}), "c", warn=False)
     r = boundedness(mesh, ind)
     assert r["c_min"] == pytest.approx(-0.1) and r["c_max"] == pytest.approx(1.2)
     assert r["overshoot_volume"] == pytest.approx(0.15)

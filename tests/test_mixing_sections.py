@@ -5,22 +5,17 @@ import pytest
 import pyvista
 from scipy import optimize, special
 
+from phasegauge.analysis.mixing import PROFILE_COLUMNS, cross_sections, mixing_length
 from phasegauge.errors import OptionError
 from phasegauge.indicator import make_indicator
+from phasegauge.io import StepFields
 from phasegauge.meshgen import delaunay_mesh, grid_mesh, to_meshio
-from phasegauge.analysis.mixing import PROFILE_COLUMNS, cross_sections, mixing_length
 
 pyvista.OFF_SCREEN = True
 
 MESHES = [("triangle", (7, 6)), ("quad", (7, 6)), ("mixed", (7, 6)), ("polygon", (7, 6)),
           ("tetra", (5, 4, 3)), ("hexahedron", (5, 4, 3)), ("wedge", (5, 4, 3)),
           ("pyramid", (4, 4, 3)), ("mixed", (6, 4, 3))]
-
-
-class _Fields:
-    def __init__(self, point_data=None, cell_data=None):
-        self.point_data = point_data or {}
-        self.cell_data = cell_data or {}
 
 
 @pytest.mark.parametrize("kind,shape", MESHES)
@@ -134,7 +129,7 @@ def test_two_streams_in_plug_flow(kind, shape):
     c = _two_streams(mesh.points[:, 0], mesh.points[:, 1], kappa)
     velocity = np.zeros((mesh.n_points, 3))
     velocity[:, 0] = 1.0
-    indicator = make_indicator(mesh, _Fields(point_data={"c": c}), "c")
+    indicator = make_indicator(mesh, StepFields(point_data={"c": c}), "c")
     positions = np.arange(0.25, length, 0.25)
     table = cross_sections(mesh, indicator, positions=positions, velocity=velocity)
     exact_index = 1 - np.sqrt(_intensity_exact(positions, kappa))
