@@ -394,18 +394,21 @@ def _cells(count: int) -> str:
 
 
 def _velocity(step, options):
-    """Velocity of the step on cells and on points, or (None, None)."""
+    """Velocity of the step on cells and on points, or (None, None).
+
+    Each side is converted only when an analysis of the run uses it: droplets use cell values,
+    the boundary flux and cross sections point values.
+    """
     if options.velocity is None:
         return None, None
     name = options.velocity
     fields = step.fields
     where = step.info.where
     if name in fields.cell_data:
-        cell = np.asarray(fields.cell_data[name], dtype=np.float64)
+        values = np.asarray(fields.cell_data[name], dtype=np.float64)
         location = "cell"
     elif name in fields.point_data:
-        cell = None
-        point = np.asarray(fields.point_data[name], dtype=np.float64)
+        values = np.asarray(fields.point_data[name], dtype=np.float64)
         location = "point"
     else:
         from .errors import FieldNotFoundError
@@ -413,7 +416,6 @@ def _velocity(step, options):
         raise FieldNotFoundError(f"velocity field '{name}' not found; fields there: "
                                  + (", ".join(fields.names()) or "none"), where=where,
                                  fix="name the velocity field with --velocity, or leave it out")
-    values = cell if location == "cell" else point
     if values.ndim != 2 or values.shape[1] not in (2, 3):
         from .errors import FieldShapeError
 
@@ -422,9 +424,11 @@ def _velocity(step, options):
     if values.shape[1] == 2:
         values = np.hstack([values, np.zeros((values.shape[0], 1))])
     mesh = step.mesh
+    need_points = "conservation" in options.analyses or (
+        "mixing" in options.analyses and options.section_axis is not None)
     if location == "cell":
-        return values, mesh.cell_to_point(values)
-    return mesh.point_to_cell(values), values
+        return values, (mesh.cell_to_point(values) if need_points else None)
+    return (mesh.point_to_cell(values) if "droplets" in options.analyses else None), values
 
 
 def analyse_step(step, options: MeasureOptions, *, contour_dir: str | None = None) -> StepResult:
