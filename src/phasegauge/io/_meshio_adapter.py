@@ -294,7 +294,7 @@ _MESH_POOL: list = []
 
 def remember_mesh(mesh: Mesh | None) -> None:
     """Keep ``mesh`` (the last two) for readers opened later in this process or its forks."""
-    if mesh is not None and all(m is not mesh for m in _MESH_POOL):
+    if mesh is not None and all(m is not mesh and m.signature != mesh.signature for m in _MESH_POOL):
         _MESH_POOL.append(mesh)
         del _MESH_POOL[:-2]
 
