@@ -7,12 +7,18 @@ constant on the pieces of their cell, so each piece carries the exact field of
 the linear (or piecewise-constant) representation. The piece integrals of c,
 c^2 and their products with the normal velocity are polynomials of degree 3 at
 most in the barycentric coordinates and are integrated exactly by the simplex
-moment formula (:func:`simplex_moments`); c is shifted by its median first so
-the variance does not suffer from cancellation.
+moment formula (:func:`_section_integrals`); c is shifted by its median first
+so the variance does not suffer from cancellation.
+
+The pieces depend on the mesh and the planes only: they are built once
+(:class:`_Sections`: the pieces, their cells, and for every corner the cut
+edge and where along it) and cached on the mesh, so a step of a series only
+interpolates its fields along the cut edges and sums the moments.
 """
 
 from __future__ import annotations
 
+from dataclasses import dataclass
 from math import factorial
 
 import numpy as np
@@ -21,7 +27,7 @@ import pandas as pd
 from ..errors import OptionError
 from ..indicator import Indicator
 from ..mesh import Mesh
-from ._simplices import cell_extent, split_cells
+from ._simplices import _quad_faces, cell_extent, centre_states, node_states, split_cell_nodes
 from ._sums import dot
 
 
@@ -106,97 +112,232 @@ def default_positions(mesh: Mesh, global_axis: int, count: int) -> np.ndarray:
     return lo + (np.arange(count) + 0.5) * (hi - lo) / count
 
 
-def _section_pieces(mesh: Mesh, axis: int, position: float, lower_end: bool, state: np.ndarray,
-                    cell_fields: list, cells: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
-    """The section of ``cells`` by one plane, as simplices carrying the fields at their corners.
+#: section operators kept per mesh: the latest ones built (a series uses one, for all its steps)
+_KEEP = 4
 
-    Parameters
-    ----------
-    state : ndarray of shape (n_points, dimension + n_point_fields)
-        Coordinates, then the point fields.
-    cell_fields : list of ndarray of shape (n_cells,)
 
-    Returns
-    -------
-    measures : ndarray of shape (n,)
-        Areas of section triangles (3D) or lengths of section segments (2D).
-    values : ndarray of shape (n, dimension, n_fields)
-        Point fields, then cell fields, at the corners of each piece.
+def _index_dtype(largest: int):
+    return np.int32 if largest < np.iinfo(np.int32).max else np.int64
+
+
+@dataclass(frozen=True)
+class _Sections:
+    """Plane sections of a mesh as fixed maps from field values to section pieces.
+
+    Mesh-only: built once per mesh, axis and plane positions, then reused for
+    every step. The pieces (triangles in 3D, segments in 2D) of plane p are
+    ``offsets[p]:offsets[p + 1]``. A piece corner lies on a cut edge of the
+    cell split, between a node below the plane (``start``) and one above
+    (``end``), at ``weight`` t along it: a point field is ``x[start] + t
+    (x[end] - x[start])`` there, exactly as the split interpolates it. Cut
+    edges are shared by the pieces of a plane, so each is stored once.
+    """
+
+    offsets: np.ndarray  # (n_planes + 1,) first piece of each plane
+    areas: np.ndarray  # (n_planes,) section area (3D) or length (2D)
+    measures: np.ndarray  # (n_pieces,) piece areas or lengths
+    corners: np.ndarray  # (dimension, n_pieces) cut edge of each piece corner
+    parent: np.ndarray  # (n_pieces,) cell of each piece
+    start: np.ndarray  # (n_cuts,) node below the plane: a mesh point, or an added centre
+    end: np.ndarray  # (n_cuts,) node above
+    weight: np.ndarray  # (n_cuts,) t, in [0, 1]
+    centred: tuple  # (block, rows) of the cells whose added centres are nodes, in node order
+
+    def cut_values(self, mesh: Mesh, values: np.ndarray) -> np.ndarray:
+        """A point field (n_points,) at every cut edge (n_cuts,), linear along the edge."""
+        added = centre_states(mesh, self.centred, values)
+        # numpy gathers much faster with intp indices than with the stored int32 ones
+        low = node_states(values, added, self.start.astype(np.intp, copy=False))
+        out = node_states(values, added, self.end.astype(np.intp, copy=False))
+        with np.errstate(invalid="ignore"):  # non-finite values: the pieces are left out later
+            out -= low
+            out *= self.weight
+            out += low  # low + t (high - low), as the split interpolates
+        return out
+
+
+def _plane_pieces(mesh: Mesh, axis: int, position: float, lower_end: bool, cells: np.ndarray,
+                  first_added: int) -> tuple:
+    """The section of ``cells`` by one plane: pieces and their corners on the cut edges.
+
+    Added centres are numbered from ``first_added`` on. Returns the piece
+    measures (n,), parents (n,), corner start and end nodes (n, dimension),
+    corner weights t (n, dimension) and the centred cells of the split.
     """
     dim = mesh.dimension
-    n_fields = state.shape[1] - dim + len(cell_fields)
-    if cells.size == 0:
-        return np.empty(0), np.empty((0, dim, n_fields))
-    S, parent = split_cells(mesh, cells, state)
-    s = S[:, :, axis] - position
+    nodes, parent, centred = split_cell_nodes(mesh, cells)
+    X = node_states(mesh.coordinates, centre_states(mesh, centred, mesh.coordinates), nodes)
+    s = X[:, :, axis] - position
     below = np.count_nonzero(s <= 0 if lower_end else s < 0, axis=1)
     crossed = (below > 0) & (below < dim + 1)
-    S, parent, s, below = S[crossed], parent[crossed], s[crossed], below[crossed]
     others = [a for a in range(dim) if a != axis]
-    columns = [S[:, :, others], S[:, :, dim:]]
-    columns += [np.repeat(values[parent][:, None, None], S.shape[1], axis=1) for values in cell_fields]
-    F = np.concatenate(columns, axis=2)
+    X, nodes, parent, s, below = X[crossed][:, :, others], nodes[crossed], parent[crossed], s[crossed], below[crossed]
+    nodes = np.where(nodes >= mesh.n_points, nodes - mesh.n_points + first_added, nodes)
     order = np.argsort(s, axis=1, kind="stable")
     s = np.take_along_axis(s, order, axis=1)
-    F = np.take_along_axis(F, order[:, :, None], axis=1)
+    X = np.take_along_axis(X, order[:, :, None], axis=1)
+    nodes = np.take_along_axis(nodes, order, axis=1)
 
     def case(k):
         # the simplices with k corners below the plane, gathered once for all their edges
         rows = below == k
-        sk, Fk = s[rows], F[rows]
+        sk, Xk, Nk = s[rows], X[rows], nodes[rows]
 
         def edge(i, j):
             si, sj = sk[:, i], sk[:, j]
-            Fi = Fk[:, i]
-            return Fi + (si / (si - sj))[:, None] * (Fk[:, j] - Fi)
+            t = si / (si - sj)
+            Xi = Xk[:, i]
+            return Xi + t[:, None] * (Xk[:, j] - Xi), Nk[:, i], Nk[:, j], t
 
-        return edge
+        return edge, parent[rows]
 
-    n_plane = len(others)
-    one, two = case(1), case(2)
+    (one, p1), (two, p2) = case(1), case(2)
     if dim == 2:
-        pieces = np.concatenate([np.stack([one(0, 1), one(0, 2)], axis=1),
-                                 np.stack([two(0, 2), two(1, 2)], axis=1)])
-        measures = np.abs(pieces[:, 1, 0] - pieces[:, 0, 0])
-        return measures, pieces[:, :, n_plane:]
-    three = case(3)
-    e02, e13 = two(0, 2), two(1, 3)
-    pieces = np.concatenate([
-        np.stack([one(0, 1), one(0, 2), one(0, 3)], axis=1),
-        np.stack([three(0, 3), three(1, 3), three(2, 3)], axis=1),
-        np.stack([e02, two(0, 3), e13], axis=1),
-        np.stack([e02, e13, two(1, 2)], axis=1),
-    ])
-    d1 = pieces[:, 1, :2] - pieces[:, 0, :2]
-    d2 = pieces[:, 2, :2] - pieces[:, 0, :2]
-    measures = 0.5 * np.abs(d1[:, 0] * d2[:, 1] - d1[:, 1] * d2[:, 0])
-    return measures, pieces[:, :, n_plane:]
+        pieces = [[one(0, 1), one(0, 2)], [two(0, 2), two(1, 2)]]
+        parents = [p1, p2]
+    else:
+        three, p3 = case(3)
+        e02, e13 = two(0, 2), two(1, 3)
+        pieces = [[one(0, 1), one(0, 2), one(0, 3)], [three(0, 3), three(1, 3), three(2, 3)],
+                  [e02, two(0, 3), e13], [e02, e13, two(1, 2)]]
+        parents = [p1, p3, p2, p2]
+    # (n, dim) per item of a corner: position in the plane, start node, end node, t
+    X, start, end, t = (np.concatenate([np.stack([corner[item] for corner in piece], axis=1)
+                                        for piece in pieces]) for item in range(4))
+    if dim == 2:
+        measures = np.abs(X[:, 1, 0] - X[:, 0, 0])
+    else:
+        d1 = X[:, 1] - X[:, 0]
+        d2 = X[:, 2] - X[:, 0]
+        measures = 0.5 * np.abs(d1[:, 0] * d2[:, 1] - d1[:, 1] * d2[:, 0])
+    return measures, np.concatenate(parents), start, end, t, centred
 
 
-def simplex_moments(measures: np.ndarray, f: np.ndarray, g: np.ndarray | None = None,
-                    h: np.ndarray | None = None) -> float:
-    """Exact integral of f (g) (h) over simplices on which f, g, h are linear.
+def _build_sections(mesh: Mesh, axis: int, positions: np.ndarray, lower_ends: np.ndarray) -> _Sections:
+    """The section operator of ``positions`` along analysis axis ``axis`` (see :class:`_Sections`)."""
+    lo, hi = cell_extent(mesh, axis)
+    dim = mesh.dimension
+    offsets, n_cuts, n_added = [0], 0, 0
+    measures, parents, corners, starts, ends, weights, centred = [], [], [], [], [], [], []
+    for position, lower_end in zip(positions, lower_ends):
+        crossed = (lo <= position) & (hi > position) if lower_end else (lo < position) & (hi >= position)
+        cells = np.nonzero(crossed)[0]
+        m, parent, start, end, t, plane_centred = _plane_pieces(
+            mesh, axis, float(position), bool(lower_end), cells, mesh.n_points + n_added)
+        # each cut edge once: the pieces of a plane share them; sorted by start node, so the
+        # values are read in point order
+        start, end, t = start.ravel(), end.ravel(), t.ravel()
+        key = start * np.int64(max(int(start.max(initial=0)), int(end.max(initial=0))) + 1) + end
+        order = np.argsort(key, kind="stable")
+        distinct = np.ones(key.size, dtype=bool)
+        distinct[1:] = key[order[1:]] != key[order[:-1]]
+        first = order[distinct]
+        cut = np.empty(key.size, dtype=np.int64)
+        cut[order] = np.cumsum(distinct) - 1
+        measures.append(m)
+        parents.append(parent)
+        corners.append(cut.reshape(-1, dim) + n_cuts)
+        starts.append(start[first])
+        ends.append(end[first])
+        weights.append(t[first])
+        centred += plane_centred
+        offsets.append(offsets[-1] + m.size)
+        n_cuts += first.size
+        n_added += sum(rows.size * (1 + _quad_faces(mesh.blocks[b].cell_type)) for b, rows in plane_centred)
+    node_type = _index_dtype(mesh.n_points + n_added)
+
+    def joined(arrays, dtype, shape=(0,)):
+        return np.concatenate(arrays).astype(dtype, copy=False) if arrays else np.zeros(shape, dtype=dtype)
+
+    measures = joined(measures, np.float64)
+    offsets = np.asarray(offsets, dtype=np.int64)
+    return _Sections(
+        offsets=offsets,
+        areas=np.array([measures[a:b].sum() for a, b in zip(offsets[:-1], offsets[1:])]),
+        measures=measures,
+        corners=np.ascontiguousarray(joined(corners, _index_dtype(n_cuts), (0, dim)).T),
+        parent=joined(parents, _index_dtype(mesh.n_cells)),
+        start=joined(starts, node_type), end=joined(ends, node_type), weight=joined(weights, np.float64),
+        centred=tuple((b, rows.astype(_index_dtype(mesh.n_cells))) for b, rows in centred))
+
+
+def _sections(mesh: Mesh, axis: int, positions: np.ndarray, lower_ends: np.ndarray) -> _Sections:
+    """The section operator, from the mesh's cache when the same planes were cut before."""
+    store = mesh.memo("cross_sections", dict)
+    key = (int(axis), positions.tobytes())
+    if key not in store:
+        while len(store) >= _KEEP:
+            store.pop(next(iter(store)))  # the oldest
+        store[key] = _build_sections(mesh, axis, positions, lower_ends)
+    return store[key]
+
+
+def _section_integrals(measures: np.ndarray, c: list, u: list | None = None) -> tuple:
+    """Exact integrals over simplices of the linear c (and u) given at their corners.
+
+    ``c`` and ``u`` are lists of k corner value arrays (n,). Returns int c,
+    int c^2, and with ``u``: int u, int u c, int u c^2.
 
     With k corners (dimension d = k - 1) and barycentric coordinates, int
     l_i l_j l_k = |S| d! a! b! c! / (d + n)! for a monomial of degree n
-    (multiplicities a, b, c), which gives for corner values (n, k):
+    (multiplicities a, b, c), which gives for corner values f, g, h:
     int f = |S| sum f / k; int f g = |S| (sum fg + sum f sum g) d! / (d + 2)!;
     int f g h = |S| (sum f sum g sum h + sum fg sum h + sum gh sum f + sum fh sum g
     + 2 sum fgh) d! / (d + 3)!.
     """
-    k = f.shape[1]
+    k = len(c)
     d = k - 1
-    sf = f.sum(axis=1)
-    if g is None:
-        return float(dot(measures, sf) / k)
-    sg = g.sum(axis=1)
-    fg = f * g
-    if h is None:
-        return float(dot(measures, fg.sum(axis=1) + sf * sg) * factorial(d) / factorial(d + 2))
-    sh = h.sum(axis=1)
-    total = (sf * sg * sh + fg.sum(axis=1) * sh + (g * h).sum(axis=1) * sf + (f * h).sum(axis=1) * sg
-             + 2 * (fg * h).sum(axis=1))
-    return float(dot(measures, total) * factorial(d) / factorial(d + 3))
+    # the sums are formed in the order (c0 + c1) + c2, as a sum over corners would
+    sc = c[0] + c[1]
+    cc = c[0] * c[0]
+    work = c[1] * c[1]
+    cc += work
+    for ci in c[2:]:
+        sc += ci
+        np.multiply(ci, ci, out=work)
+        cc += work
+    np.multiply(sc, sc, out=work)
+    work += cc
+    out = [dot(measures, sc) / k, dot(measures, work) * factorial(d) / factorial(d + 2)]
+    if u is None:
+        return tuple(out)
+    su = _corner_sum(u)
+    uc = [ui * ci for ui, ci in zip(u, c)]
+    suc = _corner_sum(uc)
+    cubic = su * sc * sc + suc * sc + cc * su + suc * sc + 2 * _corner_sum([p * ci for p, ci in zip(uc, c)])
+    out += [dot(measures, su) / k, dot(measures, suc + su * sc) * factorial(d) / factorial(d + 2),
+            dot(measures, cubic) * factorial(d) / factorial(d + 3)]
+    return tuple(out)
+
+
+def _corner_sum(values: list) -> np.ndarray:
+    """Sum of the corner arrays, added in corner order."""
+    total = values[0] + values[1]
+    for v in values[2:]:
+        total += v
+    return total
+
+
+def _median(values: np.ndarray) -> float:
+    """``np.median`` of a 1D array of finite values, the same number, faster on large arrays.
+
+    The middle ranks are selected among the values between two quantiles of
+    a sample (a few comparisons over the array instead of a partition of a
+    copy of it); when they are not there, the plain median.
+    """
+    n = values.size
+    middle = [(n - 1) // 2, n // 2]  # one rank for odd n, the two middle ones for even n
+    if n < 65536:
+        return float(np.median(values))
+    sample = np.sort(values[::64])
+    lo, hi = sample[int(0.45 * sample.size)], sample[int(0.55 * sample.size)]
+    below = int(np.count_nonzero(values < lo))
+    if below <= middle[0]:
+        inside = values[(values >= lo) & (values <= hi)]
+        if middle[1] < below + inside.size:
+            chosen = np.partition(inside, [m - below for m in middle])[[m - below for m in middle]]
+            return float(np.mean(chosen if n % 2 == 0 else chosen[:1]))
+    return float(np.median(values))
 
 
 def _statistics(weight_total: float, first: float, second: float, shift: float) -> tuple[float, float]:
@@ -286,39 +427,54 @@ def cross_sections(mesh: Mesh, c_point_or_indicator, *, axis="x", positions=None
     if positions.ndim != 1 or not np.all(np.isfinite(positions)):
         raise OptionError("positions must be a list of finite numbers",
                           fix="for example positions=[0.1, 0.2, 0.5]")
-    fields = [(c, c_location)]
+    u = None
     if velocity is not None:
-        fields.append(normal_velocity(mesh, velocity, global_axis, velocity_location))
-    # point fields travel with the coordinates through the split; cell fields follow the parent
-    point_fields = [values for values, location in fields if location == "point"]
-    cell_fields = [values for values, location in fields if location == "cell"]
-    state = np.column_stack([mesh.coordinates] + point_fields)
-    order = np.argsort([0 if location == "point" else 1 for _, location in fields], kind="stable")
-    slot = np.empty(len(fields), dtype=int)
-    slot[order] = np.arange(len(fields))  # where each field sits among the piece values
-    finite_c = c[np.isfinite(c)]
-    shift = float(np.median(finite_c)) if finite_c.size else 0.0  # shifts c before squaring
+        u = normal_velocity(mesh, velocity, global_axis, velocity_location)
+    finite = np.isfinite(c)
+    finite_c = c if finite.all() else c[finite]
+    shift = _median(finite_c) if finite_c.size else 0.0  # shifts c before squaring
     lo_bound = mesh.bounds[0, global_axis]
     tolerance = 1e-12 * max(float(np.ptp(mesh.bounds[:, global_axis])), 1e-300)
-    lo, hi = cell_extent(mesh, plane_axis)
+    # a plane through mesh points takes the faces on its lower side, except at the lower end
+    lower_ends = positions <= lo_bound + tolerance
+    sections = _sections(mesh, plane_axis, positions, lower_ends)
+
+    # point fields at the cut edges for all planes at once (c shifted there); cell fields are
+    # read per piece from its cell. Non-finite values are looked for per piece only if there are any
+    fields = [(c, c_location, shift)] + ([] if u is None else [(u[0], u[1], 0.0)])
+    sources, all_finite = [], True
+    for values, location, offset in fields:
+        if location == "point":
+            values = sections.cut_values(mesh, values)
+            values -= offset
+        all_finite = all_finite and bool(np.isfinite(values).all())
+        sources.append(values)
+    k = mesh.dimension
+
+    def on_corners(field, a, b):
+        values, (_, location, offset) = sources[field], fields[field]
+        if location == "point":
+            return [values[sections.corners[i, a:b].astype(np.intp)] for i in range(k)]
+        return [values[sections.parent[a:b].astype(np.intp)] - offset] * k
+
     rows = []
-    for position in positions:
-        lower_end = bool(position <= lo_bound + tolerance)
-        crossed = (lo <= position) & (hi > position) if lower_end else (lo < position) & (hi >= position)
-        measures, values = _section_pieces(mesh, plane_axis, float(position), lower_end, state,
-                                           cell_fields, np.nonzero(crossed)[0])
-        good = np.all(np.isfinite(values), axis=(1, 2))
-        w, v = measures[good], values[good]
-        cv = np.ascontiguousarray(v[:, :, slot[0]]) - shift
-        total = float(w.sum())
-        mean, intensity = _statistics(total, simplex_moments(w, cv), simplex_moments(w, cv, cv), shift)
-        row = {"position": float(position), "area": float(measures.sum()), "mean_area_weighted": mean,
+    for p, position in enumerate(positions):
+        a, b = sections.offsets[p], sections.offsets[p + 1]
+        w = sections.measures[a:b]
+        cv = on_corners(0, a, b)
+        un = None if u is None else on_corners(1, a, b)
+        if not all_finite:
+            # parts where c or the velocity is not finite are left out (of all but the area)
+            good = np.logical_and.reduce([np.isfinite(v) for v in cv + (un or [])])
+            w, cv = w[good], [v[good] for v in cv]
+            un = None if un is None else [v[good] for v in un]
+        integrals = _section_integrals(w, cv, un)
+        mean, intensity = _statistics(float(w.sum()), integrals[0], integrals[1], shift)
+        row = {"position": float(position), "area": float(sections.areas[p]), "mean_area_weighted": mean,
                "segregation_intensity": intensity}
-        if velocity is not None:
-            un = np.ascontiguousarray(v[:, :, slot[1]])
-            flow = simplex_moments(w, un)
-            mean_f, intensity_f = _statistics(flow, simplex_moments(w, un, cv),
-                                              simplex_moments(w, un, cv, cv), shift)
+        if un is not None:
+            flow, flow_c, flow_cc = integrals[2:]
+            mean_f, intensity_f = _statistics(flow, flow_c, flow_cc, shift)
             row.update(mean_flow_weighted=mean_f, segregation_intensity_flow=intensity_f,
                        flow_rate=flow)
         rows.append(row)

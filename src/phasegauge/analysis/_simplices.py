@@ -70,37 +70,136 @@ def _flat_faces(cell_type: str, X: np.ndarray) -> np.ndarray:
     return flat
 
 
-def _block_simplices(cell_type: str, S: np.ndarray, dim: int, flat: np.ndarray | None = None) -> list:
-    """Simplices of cells whose corner states are S (n, k, q), as (simplices, cell rows) pairs.
+def _block_simplex_nodes(cell_type: str, conn: np.ndarray, flat: np.ndarray | None,
+                         first: int) -> tuple[list, np.ndarray | None]:
+    """Simplices of cells with corners ``conn`` (n, k), as (node ids, cell rows) pairs.
 
-    ``flat`` (n,) tells which cells have only flat quad faces (computed from S when None).
+    Node ids below ``first`` are mesh points; cells split about added centres
+    (``flat`` False) number them from ``first``: their n cell centres, then per
+    quad face of the type their n face centres. Returns the pairs and the rows
+    of those cells (None when there are none).
     """
-    rows = np.arange(S.shape[0])
+    rows = np.arange(conn.shape[0])
     if cell_type == "polygon":
-        return [(S[:, [0, i, i + 1]], rows) for i in range(1, S.shape[1] - 1)]
+        return [(conn[:, [0, i, i + 1]], rows) for i in range(1, conn.shape[1] - 1)], None
     if cell_type in ("triangle", "tetra"):
-        return [(S, rows)]  # already simplices: no copy
+        return [(conn, rows)], None  # already simplices: no copy
     if cell_type == "quad":
-        return [(S[:, list(local)], rows) for local in _SPLIT[cell_type]]
+        return [(conn[:, list(local)], rows) for local in _SPLIT[cell_type]], None
     # hexahedra, wedges, pyramids: with flat faces the few simplices of the table; otherwise a
     # tetrahedron from the cell centre to every face triangle, quad faces split in four about
     # their centre, so the split conforms between neighbours even where a face is not flat
-    if flat is None:
-        flat = _flat_faces(cell_type, S[:, :, :dim])
-    out = [(S[flat][:, list(local)], rows[flat]) for local in _SPLIT[cell_type]]
-    bent = ~flat
-    if not bent.any():
-        return out
-    B = S[bent]
-    centre = B.mean(axis=1)
+    out = [(conn[flat][:, list(local)], rows[flat]) for local in _SPLIT[cell_type]]
+    bent = np.nonzero(~flat)[0]
+    if bent.size == 0:
+        return out, None
+    B = conn[bent]
+    n = bent.size
+    centre = first + np.arange(n)
+    added = 1
     for face in _FACES[cell_type]:
         F = B[:, list(face)]
         if len(face) == 3:
-            out.append((np.stack([F[:, 0], F[:, 1], F[:, 2], centre], axis=1), rows[bent]))
+            out.append((np.column_stack([F, centre]), bent))
             continue
-        middle = F.mean(axis=1)
+        middle = first + added * n + np.arange(n)
+        added += 1
         for i in range(4):
-            out.append((np.stack([F[:, i], F[:, (i + 1) % 4], middle, centre], axis=1), rows[bent]))
+            out.append((np.column_stack([F[:, i], F[:, (i + 1) % 4], middle, centre]), bent))
+    return out, bent
+
+
+def split_cell_nodes(mesh: Mesh, cells: np.ndarray) -> tuple[np.ndarray, np.ndarray, list]:
+    """Simplices of the given cells as node ids: mesh points and added face and cell centres.
+
+    Parameters
+    ----------
+    mesh : Mesh
+    cells : ndarray of int
+        Cell indices, in increasing order.
+
+    Returns
+    -------
+    nodes : ndarray of shape (n_simplices, dimension + 1), int64
+        Below ``mesh.n_points`` a mesh point; from there on the added centres,
+        numbered in the order of ``centred`` (see :func:`centre_states`).
+    parent : ndarray of shape (n_simplices,), int64
+        The cell each simplex belongs to.
+    centred : list of (block index, rows in the block) pairs
+        The cells split about added centres (hexahedra, wedges and pyramids
+        with a bent quad face).
+
+    Notes
+    -----
+    Triangles and tetrahedra stay whole, quads split in two, polygons in a
+    fan; hexahedra, wedges and pyramids with flat faces into 6, 3 and 2
+    tetrahedra; those with a bent quad face into 24, 14 and 8 tetrahedra
+    from their corner mean to each face triangle, quad faces split in four
+    about their corner mean (so the split conforms across bent faces).
+    """
+    pieces, parents, centred = [], [], []
+    first = mesh.n_points
+    flat_cells = _flat_cells(mesh)
+    for b, (block, start, stop, flat) in enumerate(zip(mesh.blocks, mesh.block_offsets[:-1],
+                                                       mesh.block_offsets[1:], flat_cells)):
+        a, z = np.searchsorted(cells, [start, stop])
+        if a == z:
+            continue
+        chosen = cells[a:z]
+        local = chosen - start
+        block_flat = None if flat is None else flat[local]
+        out, bent = _block_simplex_nodes(block.cell_type, block.connectivity[local], block_flat, first)
+        for nodes, rows in out:
+            pieces.append(nodes)
+            parents.append(chosen[rows])
+        if bent is not None:
+            centred.append((b, local[bent]))
+            first += bent.size * (1 + _quad_faces(block.cell_type))
+    if not pieces:
+        return np.empty((0, mesh.dimension + 1), dtype=np.int64), np.empty(0, dtype=np.int64), []
+    nodes = np.concatenate(pieces).astype(np.int64, copy=False)
+    return nodes, np.concatenate(parents).astype(np.int64, copy=False), centred
+
+
+def _quad_faces(cell_type: str) -> int:
+    return sum(len(face) == 4 for face in _FACES[cell_type])
+
+
+def centre_states(mesh: Mesh, centred: list, point_state: np.ndarray) -> np.ndarray:
+    """States at the centres added by :func:`split_cell_nodes`, in their node order.
+
+    A centre takes the mean of its cell's (or face's) corners, which is the
+    bilinear / trilinear value there. Shape (n_added,) + ``point_state.shape[1:]``.
+    """
+    def corner_mean(corners):
+        # the corners added in order, then divided (as a mean over the corner axis of the
+        # (n, k, q) states would), without that temporary
+        total = point_state[corners[:, 0]] + point_state[corners[:, 1]]
+        for j in range(2, corners.shape[1]):
+            total += point_state[corners[:, j]]
+        return total / corners.shape[1]
+
+    out = []
+    for b, rows in centred:
+        block = mesh.blocks[b]
+        B = block.connectivity[rows]
+        out.append(corner_mean(B))
+        for face in _FACES[block.cell_type]:
+            if len(face) == 4:
+                out.append(corner_mean(B[:, list(face)]))
+    if not out:
+        return np.empty((0,) + point_state.shape[1:], dtype=np.float64)
+    return np.concatenate(out)
+
+
+def node_states(point_state: np.ndarray, added: np.ndarray, nodes: np.ndarray) -> np.ndarray:
+    """``point_state`` at node ids, reading ids from ``len(point_state)`` on from ``added``."""
+    n = point_state.shape[0]
+    if added.shape[0] == 0:
+        return point_state[nodes]
+    extra = nodes >= n
+    out = point_state[np.where(extra, 0, nodes)]
+    out[extra] = added[nodes[extra] - n]
     return out
 
 
@@ -125,30 +224,10 @@ def split_cells(mesh: Mesh, cells: np.ndarray, point_state: np.ndarray) -> tuple
 
     Notes
     -----
-    Triangles and tetrahedra stay whole, quads split in two, polygons in a
-    fan; hexahedra, wedges and pyramids with flat faces into 6, 3 and 2
-    tetrahedra; those with a bent quad face into 24, 14 and 8 tetrahedra
-    from their corner mean to each face triangle, quad faces split in four
-    about their corner mean (so the split conforms across bent faces).
-    Coordinates must be the first ``dimension`` columns of ``point_state``.
+    The split of :func:`split_cell_nodes`.
     """
-    pieces, parents = [], []
-    flat_cells = _flat_cells(mesh)
-    for block, start, stop, flat in zip(mesh.blocks, mesh.block_offsets[:-1], mesh.block_offsets[1:],
-                                        flat_cells):
-        a, b = np.searchsorted(cells, [start, stop])
-        if a == b:
-            continue
-        chosen = cells[a:b]
-        S = point_state[block.connectivity[chosen - start]]
-        block_flat = None if flat is None else flat[chosen - start]
-        for simplices, rows in _block_simplices(block.cell_type, S, mesh.dimension, block_flat):
-            pieces.append(simplices)
-            parents.append(chosen[rows])
-    if not pieces:
-        shape = (0, mesh.dimension + 1, point_state.shape[1])
-        return np.empty(shape), np.empty(0, dtype=np.int64)
-    return np.concatenate(pieces), np.concatenate(parents)
+    nodes, parent, centred = split_cell_nodes(mesh, cells)
+    return node_states(point_state, centre_states(mesh, centred, point_state), nodes), parent
 
 
 def simplex_measures(X: np.ndarray) -> np.ndarray:
