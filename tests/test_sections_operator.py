@@ -192,6 +192,26 @@ def test_other_planes_get_their_own_operator(builds):
     assert len(store) == _cross_sections._KEEP
 
 
+def test_fields_elsewhere_extend_the_operator(builds):
+    # an operator keeps only what its fields need (cut edges for point fields, cells for cell
+    # fields); a field elsewhere builds it again for both, then both are served from the cache
+    def make():
+        return grid_mesh((6, 5, 4), kind="hexahedron", jitter=0.2, seed=2)
+
+    mesh = make()
+    c_point = 0.5 + 0.3 * np.sin(4 * mesh.points[:, 0] + 2 * mesh.points[:, 1])
+    c_cell = mesh.point_to_cell(c_point)
+    u_point = np.ones((mesh.n_points, 3))
+    kinds = [dict(c=c_point), dict(c=c_cell), dict(c=c_point), dict(c=c_cell, velocity=u_point), dict(c=c_cell)]
+    for options in kinds:
+        options = dict(options, positions=[0.3, 0.6])
+        c = options.pop("c")
+        pd.testing.assert_frame_equal(cross_sections(mesh, c, **options), cross_sections(make(), c, **options),
+                                      check_exact=True)
+    assert len(builds) == len(kinds) + 2  # a fresh mesh per call, and the cell field's rebuild
+    assert mesh.memo("cross_sections", dict)[(0, np.array([0.3, 0.6]).tobytes())].locations == {"point", "cell"}
+
+
 @pytest.mark.parametrize("n", [11, 70000, 70001])
 def test_median_is_numpy_median(n):
     # the fast selection returns exactly numpy.median, ties and sorted inputs included

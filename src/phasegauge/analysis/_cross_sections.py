@@ -131,16 +131,19 @@ class _Sections:
     (``end``), at ``weight`` t along it: a point field is ``x[start] + t
     (x[end] - x[start])`` there, exactly as the split interpolates it. Cut
     edges are shared by the pieces of a plane, so each is stored once.
+    Only what the fields' ``locations`` need is kept: the cut edges for point
+    fields, the pieces' cells for cell fields (None otherwise).
     """
 
+    locations: frozenset  # of 'point', 'cell': the fields this operator serves
     offsets: np.ndarray  # (n_planes + 1,) first piece of each plane
     areas: np.ndarray  # (n_planes,) section area (3D) or length (2D)
     measures: np.ndarray  # (n_pieces,) piece areas or lengths
-    corners: np.ndarray  # (dimension, n_pieces) cut edge of each piece corner
-    parent: np.ndarray  # (n_pieces,) cell of each piece
-    start: np.ndarray  # (n_cuts,) node below the plane: a mesh point, or an added centre
-    end: np.ndarray  # (n_cuts,) node above
-    weight: np.ndarray  # (n_cuts,) t, in [0, 1]
+    corners: np.ndarray | None  # (dimension, n_pieces) cut edge of each piece corner
+    parent: np.ndarray | None  # (n_pieces,) cell of each piece
+    start: np.ndarray | None  # (n_cuts,) node below the plane: a mesh point, or an added centre
+    end: np.ndarray | None  # (n_cuts,) node above
+    weight: np.ndarray | None  # (n_cuts,) t, in [0, 1]
     centred: tuple  # (block, rows) of the cells whose added centres are nodes, in node order
 
     def cut_values(self, mesh: Mesh, values: np.ndarray) -> np.ndarray:
@@ -213,7 +216,8 @@ def _plane_pieces(mesh: Mesh, axis: int, position: float, lower_end: bool, cells
     return measures, np.concatenate(parents), start, end, t, centred
 
 
-def _build_sections(mesh: Mesh, axis: int, positions: np.ndarray, lower_ends: np.ndarray) -> _Sections:
+def _build_sections(mesh: Mesh, axis: int, positions: np.ndarray, lower_ends: np.ndarray,
+                    locations: frozenset) -> _Sections:
     """The section operator of ``positions`` along analysis axis ``axis`` (see :class:`_Sections`)."""
     lo, hi = cell_extent(mesh, axis)
     dim = mesh.dimension
@@ -251,25 +255,37 @@ def _build_sections(mesh: Mesh, axis: int, positions: np.ndarray, lower_ends: np
 
     measures = joined(measures, np.float64)
     offsets = np.asarray(offsets, dtype=np.int64)
+    points = "point" in locations
     return _Sections(
+        locations=locations,
         offsets=offsets,
         areas=np.array([measures[a:b].sum() for a, b in zip(offsets[:-1], offsets[1:])]),
         measures=measures,
-        corners=np.ascontiguousarray(joined(corners, _index_dtype(n_cuts), (0, dim)).T),
-        parent=joined(parents, _index_dtype(mesh.n_cells)),
-        start=joined(starts, node_type), end=joined(ends, node_type), weight=joined(weights, np.float64),
-        centred=tuple((b, rows.astype(_index_dtype(mesh.n_cells))) for b, rows in centred))
+        corners=np.ascontiguousarray(joined(corners, _index_dtype(n_cuts), (0, dim)).T) if points else None,
+        parent=joined(parents, _index_dtype(mesh.n_cells)) if "cell" in locations else None,
+        start=joined(starts, node_type) if points else None,
+        end=joined(ends, node_type) if points else None,
+        weight=joined(weights, np.float64) if points else None,
+        centred=tuple((b, rows.astype(_index_dtype(mesh.n_cells))) for b, rows in centred) if points else ())
 
 
-def _sections(mesh: Mesh, axis: int, positions: np.ndarray, lower_ends: np.ndarray) -> _Sections:
-    """The section operator, from the mesh's cache when the same planes were cut before."""
+def _sections(mesh: Mesh, axis: int, positions: np.ndarray, lower_ends: np.ndarray,
+              locations: frozenset) -> _Sections:
+    """The section operator, from the mesh's cache when the same planes were cut before.
+
+    ``locations``: where the fields live ('point', 'cell'); an operator kept
+    for other locations is built again for all of them.
+    """
     store = mesh.memo("cross_sections", dict)
     key = (int(axis), positions.tobytes())
-    if key not in store:
+    kept = store.pop(key, None)  # put back last: the newest
+    if kept is None or not locations <= kept.locations:
+        locations = locations | (kept.locations if kept is not None else frozenset())
         while len(store) >= _KEEP:
             store.pop(next(iter(store)))  # the oldest
-        store[key] = _build_sections(mesh, axis, positions, lower_ends)
-    return store[key]
+        kept = _build_sections(mesh, axis, positions, lower_ends, locations)
+    store[key] = kept
+    return kept
 
 
 def _section_integrals(measures: np.ndarray, c: list, u: list | None = None) -> tuple:
@@ -437,7 +453,8 @@ def cross_sections(mesh: Mesh, c_point_or_indicator, *, axis="x", positions=None
     tolerance = 1e-12 * max(float(np.ptp(mesh.bounds[:, global_axis])), 1e-300)
     # a plane through mesh points takes the faces on its lower side, except at the lower end
     lower_ends = positions <= lo_bound + tolerance
-    sections = _sections(mesh, plane_axis, positions, lower_ends)
+    locations = frozenset([c_location] + ([] if u is None else [u[1]]))
+    sections = _sections(mesh, plane_axis, positions, lower_ends, locations)
 
     # point fields at the cut edges for all planes at once (c shifted there); cell fields are
     # read per piece from its cell. Non-finite values are looked for per piece only if there are any
