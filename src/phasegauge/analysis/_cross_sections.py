@@ -228,16 +228,20 @@ def _build_sections(mesh: Mesh, axis: int, positions: np.ndarray, lower_ends: np
         cells = np.nonzero(crossed)[0]
         m, parent, start, end, t, plane_centred = _plane_pieces(
             mesh, axis, float(position), bool(lower_end), cells, mesh.n_points + n_added)
-        # each cut edge once: the pieces of a plane share them; sorted by start node, so the
-        # values are read in point order
+        # each cut edge once: the pieces of a plane share them. Numbered in the order the
+        # pieces first use them, so the pieces read their corner values nearly in order
         start, end, t = start.ravel(), end.ravel(), t.ravel()
         key = start * np.int64(max(int(start.max(initial=0)), int(end.max(initial=0))) + 1) + end
         order = np.argsort(key, kind="stable")
         distinct = np.ones(key.size, dtype=bool)
         distinct[1:] = key[order[1:]] != key[order[:-1]]
-        first = order[distinct]
+        first = order[distinct]  # where each cut edge is used first, in key order
+        by_use = np.argsort(first)
+        number = np.empty(first.size, dtype=np.int64)
+        number[by_use] = np.arange(first.size)
         cut = np.empty(key.size, dtype=np.int64)
-        cut[order] = np.cumsum(distinct) - 1
+        cut[order] = number[np.cumsum(distinct) - 1]
+        first = first[by_use]
         measures.append(m)
         parents.append(parent)
         corners.append(cut.reshape(-1, dim) + n_cuts)
