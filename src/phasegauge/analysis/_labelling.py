@@ -23,7 +23,7 @@ taken from a per-mesh table (``_neighbour_table``: index arithmetic on a regular
    (plus periodic pairs): rings of cells grown breadth first from the
    droplet cores, each new cell taking the droplet of its neighbour in the
    ring before with the highest c (one pass over the neighbour table for
-   all rings, then pointer jumping down these parent links; a wide plateau
+   all rings, then down these parent links ring by ring; a wide plateau
    is finished by a multi-source Dijkstra search along centroid distances).
    Band cells whose band region touches no droplet (a dissolving remnant
    below the level) stay unassigned.
@@ -262,10 +262,10 @@ def _pieces(mesh: Mesh, cells: np.ndarray, core: np.ndarray, neighbours: np.ndar
     if connectivity == "face":
         rank = np.full(n_local + 1, -1, dtype=np.int64)
         rank[core_local] = np.arange(k)
-        nb = rank[neighbours[core_local]]
+        nb = np.take(rank, np.take(neighbours, core_local, axis=0))
         keep = nb >= 0
-        i = np.broadcast_to(np.arange(k)[:, None], nb.shape)[keep]
-        graph = sparse.coo_matrix((np.ones(i.size, dtype=np.int8), (i, nb[keep])), shape=(k, k))
+        indptr = np.concatenate([[0], np.cumsum(keep.sum(axis=1))])  # rows: the core cells in order
+        graph = sparse.csr_matrix((np.ones(indptr[-1], dtype=np.int8), nb[keep], indptr), shape=(k, k))
         count, sub = csgraph.connected_components(graph, directed=False)
         if grid is not None and count:  # number as ndimage.label: by the raster position of the first cell
             raster = grid.cell_index[cells[core_local]]
@@ -395,7 +395,7 @@ def _share_band(label: np.ndarray, c: np.ndarray, neighbours: np.ndarray, extra:
     c : ndarray (k,), indicator of each cell
     neighbours : ndarray (k, m), face neighbours in local numbers (k: none)
     extra : ndarray (e, 2), further neighbour pairs in local numbers (periodic pairs)
-    rings : int, breadth-first rings before a cell counts as far
+    rings : int, breadth-first rings before a cell counts as far (below 127)
 
     Returns
     -------
@@ -406,11 +406,12 @@ def _share_band(label: np.ndarray, c: np.ndarray, neighbours: np.ndarray, extra:
     Ring r holds the band cells r steps from the nearest core cell (breadth first over
     the face graph plus ``extra``). Each cell of ring r takes the droplet of its neighbour
     in ring r - 1 with the highest c clipped to [0, 1], the lower local number (so the
-    lower cell number) on a tie; the droplets then run down these parent links
-    (pointer jumping) from the cores.
+    lower cell number) on a tie; the droplets then run down these parent links from
+    the cores, ring by ring.
     """
     k = c.size
-    ring = np.full(k + 1, np.iinfo(np.int64).max, dtype=np.int64)
+    # ring numbers in int8 (rings < 127): small arrays make the many gathers cheaper
+    ring = np.full(k + 1, 127, dtype=np.int8)  # 127: not visited
     ring[k] = -2  # the "no cell" slot: never counted as not visited, never in a ring before
     frontier = np.flatnonzero(label >= 0)
     ring[frontier] = 0
@@ -418,6 +419,7 @@ def _share_band(label: np.ndarray, c: np.ndarray, neighbours: np.ndarray, extra:
         tail = np.concatenate([extra[:, 0], extra[:, 1]])
         head = np.concatenate([extra[:, 1], extra[:, 0]])
     stamp = np.empty(k + 1, dtype=np.int64)
+    by_ring = []  # the cells of ring 1, 2, ...
     far = False
     for r in range(1, rings + 2):
         reached = np.take(neighbours, frontier, axis=0).ravel()  # take: much faster than [] on rows
@@ -435,12 +437,13 @@ def _share_band(label: np.ndarray, c: np.ndarray, neighbours: np.ndarray, extra:
         order = np.arange(reached.size)
         stamp[reached] = order  # one position per cell survives: the ring's cells once each
         frontier = reached[np.take(stamp, reached) == order]
+        by_ring.append(frontier)
     # parents: for each cell of ring r, its neighbour in ring r - 1 with the highest c (lowest number on a tie)
-    rows = np.flatnonzero((ring[:k] >= 1) & (ring[:k] <= rings))
-    parent = np.arange(k)
-    if rows.size:
+    root = np.arange(k)
+    if by_ring:
+        rows = np.concatenate(by_ring)
         cc = np.append(np.clip(c, 0.0, 1.0), -np.inf)
-        previous = np.take(ring, rows) - 1
+        previous = np.take(ring, rows) - np.int8(1)
         nb = np.take(neighbours, rows, axis=0)
         values = []  # column by column: faster than reductions along a short axis
         for j in range(nb.shape[1]):
@@ -461,13 +464,11 @@ def _share_band(label: np.ndarray, c: np.ndarray, neighbours: np.ndarray, extra:
             pick[raised > best] = k
             tie = cc[via] == raised[at]
             np.minimum.at(pick, at[tie], via[tie])
+        # droplets run down the parent links ring by ring
+        parent = np.empty(k, dtype=np.int64)
         parent[rows] = pick
-    root = parent
-    while True:  # pointer jumping: log2(rings) rounds
-        up = root[root]
-        if np.array_equal(up, root):
-            break
-        root = up
+        for cells in by_ring:
+            root[cells] = root[parent[cells]]
     return label[root], root, far
 
 
@@ -523,7 +524,10 @@ def _group_extrema(groups: np.ndarray, lo: np.ndarray, hi: np.ndarray, n: int):
     out_hi = np.full((n, hi.shape[1]), np.nan)
     if groups.size == 0:
         return out_lo, out_hi
-    order = np.argsort(groups, kind="stable")
+    if n <= np.iinfo(np.int16).max:
+        order = np.argsort(groups.astype(np.int16), kind="stable")  # a radix sort for 16-bit keys
+    else:
+        order = np.argsort(groups, kind="stable")
     g = groups[order]
     starts = np.flatnonzero(np.concatenate([[True], g[1:] != g[:-1]]))
     out_lo[g[starts]] = np.minimum.reduceat(lo[order], starts, axis=0)
