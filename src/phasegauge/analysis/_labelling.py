@@ -193,8 +193,8 @@ def _neighbour_table(mesh: Mesh) -> np.ndarray:
             lo = tuple(slice(None, -1) if d == axis else slice(None) for d in range(dim))
             hi = tuple(slice(1, None) if d == axis else slice(None) for d in range(dim))
             table[hi + (2 * axis,)] = order[lo]  # neighbour on the low side
-            table[lo + (2 * axis + 1,)] = order[hi]  # and on the high side
-        table = table.reshape(-1, 2 * dim)[grid.cell_index]
+            table[lo + (2 * axis + 1,)] = order[hi]  # on the high side
+        table = np.take(table.reshape(-1, 2 * dim), grid.cell_index, axis=0)
     else:
         p = mesh.face_pairs  # sorted by first cell
         a, b = np.ascontiguousarray(p[:, 0]), np.ascontiguousarray(p[:, 1])
