@@ -161,8 +161,8 @@ def test_labels_and_band_follow_the_mesh_wide_rule(kind, dim, n, connectivity):
     labels = reference_labels(mesh, c, connectivity, extra)
     shared, growing = reference_shared(mesh, c, labels, extra)
     assert not growing and result.count >= 2
-    np.testing.assert_array_equal(result.labels, labels)
-    np.testing.assert_array_equal(result.shared_labels, shared)
+    np.testing.assert_array_equal(result.labels, labels)  # scipy.sparse.csgraph.connected_components, exact
+    np.testing.assert_array_equal(result.shared_labels, shared)  # the Notes' ring rule over the whole mesh, exact
 
     c0 = np.nan_to_num(c, nan=0.0)
     dV = mesh.cell_measures
@@ -170,14 +170,14 @@ def test_labels_and_band_follow_the_mesh_wide_rule(kind, dim, n, connectivity):
     inside = labels >= 0
     volume = np.bincount(shared[member], weights=(c0 * dV)[member])
     table = result.table
-    np.testing.assert_allclose(table["volume"], volume, rtol=1e-12)
+    np.testing.assert_allclose(table["volume"], volume, rtol=1e-12)  # numpy sums over the whole mesh
     np.testing.assert_allclose(table["threshold_volume"], np.bincount(labels[inside], weights=dV[inside]), rtol=1e-12)
     X = mesh.cell_centroids
     plane = [f"centroid_{'xyz'[a]}" for a in mesh.plane_axes[:dim]]
     for d, column in enumerate(plane):
         expected = np.bincount(shared[member], weights=(c0 * dV * X[:, d])[member]) / volume
         np.testing.assert_allclose(table[column], expected, rtol=1e-12)
-    lo, hi = corner_boxes(mesh)
+    lo, hi = corner_boxes(mesh)  # corner min/max of every cell, numpy
     for d, a in enumerate(mesh.plane_axes[:dim]):
         for drop in range(result.count):
             cells = labels == drop
@@ -201,8 +201,8 @@ def test_periodic_labels_and_band_follow_the_mesh_wide_rule(kind, dim, n, axes):
     shared, growing = reference_shared(mesh, c, labels, extra)
     assert not growing
     assert result.count < len(np.unique(reference_labels(mesh, c, "face", extra[:0]))) - 1  # joins happened
-    np.testing.assert_array_equal(result.labels, labels)
-    np.testing.assert_array_equal(result.shared_labels, shared)
+    np.testing.assert_array_equal(result.labels, labels)  # scipy.sparse.csgraph.connected_components, exact
+    np.testing.assert_array_equal(result.shared_labels, shared)  # the Notes' ring rule over the whole mesh, exact
     dV = mesh.cell_measures
     member = shared >= 0
     np.testing.assert_allclose(result.table["volume"],
@@ -267,7 +267,7 @@ def test_ties_go_to_the_neighbour_with_the_lower_cell_number(kind):
     labels = reference_labels(mesh, c, "face", np.empty((0, 2), np.int64))
     shared, _ = reference_shared(mesh, c, labels, np.empty((0, 2), np.int64))
     assert result.count == 2
-    np.testing.assert_array_equal(result.shared_labels, shared)
+    np.testing.assert_array_equal(result.shared_labels, shared)  # the Notes' ring rule, lower cell number on a tie
     # ties did occur: some band cell has neighbours of equal c in both droplets
     p = mesh.face_pairs
     tail = np.concatenate([p[:, 0], p[:, 1]])
@@ -293,7 +293,7 @@ def test_plateau_wider_than_the_rings_is_split_at_the_middle(kind, shape):
     assert result.count == 2
     left = result.labels[np.argmin(x)]
     right = result.labels[np.argmax(x)]
-    np.testing.assert_array_equal(result.shared_labels, np.where(x < 0.5, left, right))
+    np.testing.assert_array_equal(result.shared_labels, np.where(x < 0.5, left, right))  # mirror symmetry, exact
     assert_same_result(result, label_droplets(twin_without_grid(mesh), c))
 
 
