@@ -441,7 +441,7 @@ def _share_band(label: np.ndarray, c: np.ndarray, neighbours: np.ndarray, extra:
     # parents: for each cell of ring r, its neighbour in ring r - 1 with the highest c (lowest number on a tie)
     root = np.arange(k)
     if by_ring:
-        rows = np.concatenate(by_ring)
+        rows = np.flatnonzero((ring[:k] >= 1) & (ring[:k] <= rings))  # in order: gathers stay local
         cc = np.append(np.clip(c, 0.0, 1.0), -np.inf)
         previous = np.take(ring, rows) - np.int8(1)
         nb = np.take(neighbours, rows, axis=0)
