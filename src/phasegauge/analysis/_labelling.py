@@ -1,11 +1,16 @@
 """Droplet labelling: connected regions of c > level, periodic joins, band sharing, per-droplet table.
 
-The algorithm, in vectorised steps:
+The algorithm, in vectorised steps. Everything after the first pass over c runs on the
+*near* cells only (c above the band floor: the droplet cores and their diffuse band, a
+small part of a large mesh), numbered locally in mesh order, with their face neighbours
+taken from a per-mesh table (``_neighbour_table``: index arithmetic on a regular grid,
+``mesh.face_pairs`` elsewhere):
 
-1. *Pieces.* Cells with ``c > level`` are grouped into connected pieces:
-   ``scipy.ndimage.label`` on the cell array of a regular grid, else
-   ``scipy.sparse.csgraph.connected_components`` on the face graph (or on the
-   cell-point graph for point adjacency) restricted to those cells.
+1. *Pieces.* Cells with ``c > level`` are grouped into connected pieces by
+   ``scipy.sparse.csgraph.connected_components`` on the face graph restricted
+   to those cells (on a regular grid numbered in the raster order of
+   ``scipy.ndimage.label``), or for point adjacency on the cell-point graph
+   (``scipy.ndimage.label`` with the full structure on a regular grid).
 2. *Periodic joins.* Boundary faces on the low and high side of each periodic
    axis are matched by their centre coordinates in the other axes (a KD-tree),
    giving cell pairs across the boundary. Pieces linked by such pairs form one
@@ -16,12 +21,15 @@ The algorithm, in vectorised steps:
 3. *Band sharing.* Cells with ``band_floor < c <= level`` (the diffuse band
    below the level) go to the droplet nearest to them along the face graph
    (plus periodic pairs): rings of cells grown breadth first from the
-   droplet cores, each new cell taking the droplet of its neighbour with the
-   highest c (a wide plateau is finished by a multi-source Dijkstra search
-   along centroid distances). Band cells whose band region touches no
-   droplet (a dissolving remnant below the level) stay unassigned.
+   droplet cores, each new cell taking the droplet of its neighbour in the
+   ring before with the highest c (one pass over the neighbour table for
+   all rings, then down these parent links ring by ring; a wide plateau
+   is finished by a multi-source Dijkstra search along centroid distances).
+   Band cells whose band region touches no droplet (a dissolving remnant
+   below the level) stay unassigned.
 4. *Table.* Integrals with weights ``c dV`` over each droplet's cells,
-   threshold cells and band share, by ``numpy.bincount``.
+   threshold cells and band share, by ``numpy.bincount``; boxes from the
+   corners of the core cells.
 """
 
 from __future__ import annotations
@@ -163,20 +171,66 @@ def _periodic_pairs(mesh: Mesh, axis: int):
     return store[key]
 
 
-def _corner_boxes(mesh: Mesh):
-    """Per-cell min and max corner coordinates, each (n_cells, dim)."""
+def _neighbour_table(mesh: Mesh) -> np.ndarray:
+    """Face neighbours of every cell, shape (n_cells, m), -1 padded; cached per mesh.
+
+    From the cell array's index arithmetic on regular grids (no face grouping needed),
+    else from ``mesh.face_pairs`` (each pair once as (a, b) in row a, once as (b, a) in row b).
+    """
     store = _cache(mesh)
-    if "corner_boxes" not in store:
-        X = mesh.coordinates
-        lo = np.empty((mesh.n_cells, mesh.dimension))
-        hi = np.empty_like(lo)
-        for block, start in zip(mesh.blocks, mesh.block_offsets[:-1]):
-            sl = slice(int(start), int(start) + len(block))
-            corners = X[block.connectivity]
-            lo[sl] = corners.min(axis=1)
-            hi[sl] = corners.max(axis=1)
-        store["corner_boxes"] = (lo, hi)
-    return store["corner_boxes"]
+    if "neighbours" in store:
+        return store["neighbours"]
+    n = mesh.n_cells
+    dtype = np.int32 if n < np.iinfo(np.int32).max else np.int64
+    grid = mesh.regular_grid
+    if grid is not None:
+        order = np.empty(n, dtype=dtype)
+        order[grid.cell_index] = np.arange(n, dtype=dtype)
+        order = order.reshape(grid.cell_shape)
+        dim = order.ndim
+        table = np.full(order.shape + (2 * dim,), -1, dtype=dtype)
+        for axis in range(dim):
+            lo = tuple(slice(None, -1) if d == axis else slice(None) for d in range(dim))
+            hi = tuple(slice(1, None) if d == axis else slice(None) for d in range(dim))
+            table[hi + (2 * axis,)] = order[lo]  # neighbour on the low side
+            table[lo + (2 * axis + 1,)] = order[hi]  # on the high side
+        table = np.take(table.reshape(-1, 2 * dim), grid.cell_index, axis=0)
+    else:
+        p = mesh.face_pairs  # sorted by first cell
+        a, b = np.ascontiguousarray(p[:, 0]), np.ascontiguousarray(p[:, 1])
+        deg_a = np.bincount(a, minlength=n)
+        deg_b = np.bincount(b, minlength=n)
+        width = max(int((deg_a + deg_b).max(initial=0)), 1)
+        table = np.full((n, width), -1, dtype=dtype)
+        flat = table.reshape(-1)
+        rank = np.arange(a.size)
+        flat[a * width + rank - (np.cumsum(deg_a) - deg_a)[a]] = b  # row a: its b's first
+        by_b = np.argsort(b, kind="stable")
+        b = b[by_b]
+        flat[b * width + deg_a[b] + rank - (np.cumsum(deg_b) - deg_b)[b]] = a[by_b]  # then its a's
+    store["neighbours"] = table
+    return table
+
+
+def _core_boxes(mesh: Mesh, cells: np.ndarray):
+    """Min and max corner coordinates of the given cells (sorted indices), each (len(cells), dim)."""
+    X = mesh.coordinates
+    lo = np.empty((cells.size, mesh.dimension))
+    hi = np.empty_like(lo)
+    offsets = mesh.block_offsets
+    bounds = np.searchsorted(cells, offsets)
+    for block, start, first, last in zip(mesh.blocks, offsets[:-1], bounds[:-1], bounds[1:]):
+        if last > first:
+            conn = np.take(block.connectivity, cells[first:last] - start, axis=0)
+            corner = np.take(X, conn[:, 0], axis=0)
+            low, high = corner.copy(), corner
+            for j in range(1, conn.shape[1]):  # corner by corner: faster than reducing a short axis
+                corner = np.take(X, conn[:, j], axis=0)
+                np.minimum(low, corner, out=low)
+                high = np.maximum(high, corner)
+            lo[first:last] = low
+            hi[first:last] = high
+    return lo, hi
 
 
 def _face_lengths(mesh: Mesh, pairs: np.ndarray) -> np.ndarray:
@@ -184,47 +238,53 @@ def _face_lengths(mesh: Mesh, pairs: np.ndarray) -> np.ndarray:
 
 
 # --------------------------------------------------------------------------- labelling steps
-def _near_face_pairs(mesh: Mesh, near: np.ndarray) -> np.ndarray | None:
-    """Face pairs with both cells ``near`` (c above the band floor); None on regular grids (not needed)."""
-    if mesh.regular_grid is not None:
-        return None
-    p = mesh.face_pairs
-    return p[near[p[:, 0]] & near[p[:, 1]]]
+def _pieces(mesh: Mesh, cells: np.ndarray, core: np.ndarray, neighbours: np.ndarray,
+            connectivity: str) -> tuple[int, np.ndarray]:
+    """Connected pieces of the core cells without periodic joins: (count, piece per local cell, -1 off core).
 
-
-def _pieces(mesh: Mesh, inside: np.ndarray, connectivity: str, near_pairs=None) -> tuple[int, np.ndarray]:
-    """Connected pieces of the ``inside`` cells without periodic joins: (count, piece per cell).
-
-    ``near_pairs``: face pairs already narrowed to a superset of the inside cells (optional)."""
+    ``cells`` are the mesh cells of the local numbering (sorted), ``core`` marks those with
+    c > level, ``neighbours`` (len(cells), m) their face neighbours in local numbers (len(cells):
+    none). Pieces are numbered in the order of their first cell (raster order of the cell
+    array on regular grids, as ``scipy.ndimage.label``; mesh order elsewhere).
+    """
     grid = mesh.regular_grid
-    dim = mesh.dimension
-    if grid is not None:
+    n_local = cells.size
+    out = np.full(n_local + 1, -1, dtype=np.int64)  # slot n_local: "no cell"
+    core_local = np.flatnonzero(core)
+    if connectivity == "point" and grid is not None:
+        structure = ndimage.generate_binary_structure(mesh.dimension, mesh.dimension)
         volume = np.zeros(int(np.prod(grid.cell_shape)), dtype=bool)
-        volume[grid.cell_index] = inside
-        structure = ndimage.generate_binary_structure(dim, 1 if connectivity == "face" else dim)
+        volume[grid.cell_index[cells[core_local]]] = True
         lab, count = ndimage.label(volume.reshape(grid.cell_shape), structure=structure)
-        return int(count), lab.ravel()[grid.cell_index].astype(np.int64) - 1
-    cells = np.flatnonzero(inside)
-    position = np.full(mesh.n_cells, -1, dtype=np.int64)
-    position[cells] = np.arange(cells.size)
+        out[core_local] = lab.ravel()[grid.cell_index[cells[core_local]]].astype(np.int64) - 1
+        return int(count), out
+    k = core_local.size
     if connectivity == "face":
-        p = mesh.face_pairs if near_pairs is None else near_pairs
-        keep = inside[p[:, 0]] & inside[p[:, 1]]
-        i, j = position[p[keep, 0]], position[p[keep, 1]]
-        graph = sparse.coo_matrix((np.ones(i.size, dtype=np.int8), (i, j)), shape=(cells.size, cells.size))
+        rank = np.full(n_local + 1, -1, dtype=np.int64)
+        rank[core_local] = np.arange(k)
+        nb = np.take(rank, np.take(neighbours, core_local, axis=0))
+        keep = nb >= 0
+        indptr = np.concatenate([[0], np.cumsum(keep.sum(axis=1))])  # rows: the core cells in order
+        graph = sparse.csr_matrix((np.ones(indptr[-1], dtype=np.int8), nb[keep], indptr), shape=(k, k))
         count, sub = csgraph.connected_components(graph, directed=False)
+        if grid is not None and count:  # number as ndimage.label: by the raster position of the first cell
+            raster = grid.cell_index[cells[core_local]]
+            first = np.full(count, raster.max() + 1)
+            np.minimum.at(first, sub, raster)
+            rank_of = np.empty(count, dtype=np.int64)
+            rank_of[np.argsort(first)] = np.arange(count)
+            sub = rank_of[sub]
     else:
         # cells and their corner points as one bipartite graph: point-connected cells
         # are in one component; points of no inside cell form their own components
-        incidence = mesh.incidence[cells].tocoo()
-        n = cells.size + mesh.n_points
+        incidence = mesh.incidence[cells[core_local]].tocoo()
+        n = k + mesh.n_points
         graph = sparse.coo_matrix((np.ones(incidence.nnz, dtype=np.int8),
-                                   (incidence.row, cells.size + incidence.col)), shape=(n, n))
+                                   (incidence.row, k + incidence.col)), shape=(n, n))
         _, comp = csgraph.connected_components(graph, directed=False)
-        count, sub = np.unique(comp[: cells.size], return_inverse=True)
+        count, sub = np.unique(comp[:k], return_inverse=True)
         count = int(count.size)
-    out = np.full(mesh.n_cells, -1, dtype=np.int64)
-    out[cells] = sub
+    out[core_local] = sub
     return int(count), out
 
 
@@ -306,11 +366,11 @@ def _grid_order(mesh: Mesh) -> np.ndarray:
     return store["grid_order"]
 
 
-def _band_face_pairs(mesh: Mesh, member: np.ndarray, band: np.ndarray, near_pairs=None) -> np.ndarray:
+def _band_face_pairs(mesh: Mesh, member: np.ndarray, band: np.ndarray) -> np.ndarray:
     """Face pairs of member cells with at least one band cell; from the cell array on regular grids."""
     grid = mesh.regular_grid
     if grid is None:
-        p = mesh.face_pairs if near_pairs is None else near_pairs
+        p = mesh.face_pairs
         keep = member[p[:, 0]] & member[p[:, 1]] & (band[p[:, 0]] | band[p[:, 1]])
         return p[keep]
     order = _grid_order(mesh)
@@ -325,49 +385,113 @@ def _band_face_pairs(mesh: Mesh, member: np.ndarray, band: np.ndarray, near_pair
     return np.concatenate(out)
 
 
-def _share_band(mesh: Mesh, c: np.ndarray, labels: np.ndarray, extra_pairs: np.ndarray,
-                band_floor: float, rings: int = 32, near_pairs=None):
-    """Labels with diffuse-band cells given to the nearest droplet; and each band cell's source cell.
+def _share_band(label: np.ndarray, c: np.ndarray, neighbours: np.ndarray, extra: np.ndarray,
+                rings: int = 32):
+    """Band cells given to the nearest droplet, in the local numbering of the near cells.
 
-    Ring by ring (breadth first from the droplet cores over band cells), each newly reached cell
-    takes the droplet of its neighbour with the highest c; after ``rings`` rings (a wide plateau)
-    the rest is finished by a multi-source Dijkstra search along centroid distances.
+    Parameters
+    ----------
+    label : ndarray (k,), droplet of each core cell, -1 for band cells
+    c : ndarray (k,), indicator of each cell
+    neighbours : ndarray (k, m), face neighbours in local numbers (k: none)
+    extra : ndarray (e, 2), further neighbour pairs in local numbers (periodic pairs)
+    rings : int, breadth-first rings before a cell counts as far (below 127)
+
+    Returns
+    -------
+    shared : ndarray (k,), droplet of every cell (-1: none, or far)
+    root : ndarray (k,), the core cell (local number) each cell's droplet came from
+    far : bool, some cells lie more than ``rings`` rings from every core
+
+    Ring r holds the band cells r steps from the nearest core cell (breadth first over
+    the face graph plus ``extra``). Each cell of ring r takes the droplet of its neighbour
+    in ring r - 1 with the highest c clipped to [0, 1], the lower local number (so the
+    lower cell number) on a tie; the droplets then run down these parent links from
+    the cores, ring by ring.
     """
-    shared = labels.copy()
-    source_cell = np.arange(mesh.n_cells)
-    band = (c > band_floor) & (labels < 0)
-    if not band.any() or not (labels >= 0).any():
-        return shared, source_cell
-    member = band | (labels >= 0)
-    pairs = _band_face_pairs(mesh, member, band, near_pairs)
+    k = c.size
+    # ring numbers in int8 (rings < 127): small arrays make the many gathers cheaper
+    ring = np.full(k + 1, 127, dtype=np.int8)  # 127: not visited
+    ring[k] = -2  # the "no cell" slot: never counted as not visited, never in a ring before
+    frontier = np.flatnonzero(label >= 0)
+    ring[frontier] = 0
+    if extra.size:
+        tail = np.concatenate([extra[:, 0], extra[:, 1]])
+        head = np.concatenate([extra[:, 1], extra[:, 0]])
+    stamp = np.empty(k + 1, dtype=np.int64)
+    by_ring = []  # the cells of ring 1, 2, ...
+    far = False
+    for r in range(1, rings + 2):
+        reached = np.take(neighbours, frontier, axis=0).ravel()  # take: much faster than [] on rows
+        if extra.size:
+            on = np.zeros(k + 1, dtype=bool)
+            on[frontier] = True
+            reached = np.concatenate([reached, head[on[tail]]])
+        reached = reached[np.take(ring, reached) > r]  # not visited yet (the slot k never passes)
+        if reached.size == 0:
+            break
+        if r > rings:
+            far = True
+            break
+        ring[reached] = r
+        order = np.arange(reached.size)
+        stamp[reached] = order  # one position per cell survives: the ring's cells once each
+        frontier = reached[np.take(stamp, reached) == order]
+        by_ring.append(frontier)
+    # parents: for each cell of ring r, its neighbour in ring r - 1 with the highest c (lowest number on a tie)
+    root = np.arange(k)
+    if by_ring:
+        rows = np.flatnonzero((ring[:k] >= 1) & (ring[:k] <= rings))  # in order: gathers stay local
+        cc = np.append(np.clip(c, 0.0, 1.0), -np.inf)
+        previous = np.take(ring, rows) - np.int8(1)
+        nb = np.take(neighbours, rows, axis=0)
+        values = []  # column by column: faster than reductions along a short axis
+        for j in range(nb.shape[1]):
+            cand = nb[:, j]
+            values.append(np.where(np.take(ring, cand) == previous, np.take(cc, cand), -np.inf))
+        best = np.maximum.reduce(values)  # -inf only where the parent is across a periodic pair
+        pick = np.full(rows.size, k, dtype=np.int64)
+        for j, value in enumerate(values):
+            pick = np.minimum(pick, np.where(value == best, nb[:, j], k))
+        if extra.size:  # periodic pairs: few, but several per cell possible
+            row_of = np.full(k + 1, -1, dtype=np.int64)
+            row_of[rows] = np.arange(rows.size)
+            at = row_of[head]
+            ok = (at >= 0) & (ring[tail] == ring[head] - 1)
+            at, via = at[ok], tail[ok]
+            raised = best.copy()
+            np.maximum.at(raised, at, cc[via])
+            pick[raised > best] = k
+            tie = cc[via] == raised[at]
+            np.minimum.at(pick, at[tie], via[tie])
+        # droplets run down the parent links ring by ring
+        parent = np.empty(k, dtype=np.int64)
+        parent[rows] = pick
+        for cells in by_ring:
+            root[cells] = root[parent[cells]]
+    return label[root], root, far
+
+
+def _finish_far_band(mesh: Mesh, cells: np.ndarray, label: np.ndarray, shared: np.ndarray, root: np.ndarray,
+                     links) -> tuple[np.ndarray, np.ndarray]:
+    """Band cells beyond the rings (a wide plateau): each goes to the nearest assigned cell along
+    centroid distances, over the mesh-wide band graph; returns the local ``shared`` and ``root``."""
+    n = mesh.n_cells
+    member = np.zeros(n, dtype=bool)
+    member[cells] = True
+    band = np.zeros(n, dtype=bool)
+    band[cells[label < 0]] = True
+    pairs = _band_face_pairs(mesh, member, band)
+    extra_pairs = np.concatenate([p for p, _, _ in links]) if links else np.empty((0, 2), np.int64)
     if extra_pairs.size:
         keep = member[extra_pairs[:, 0]] & member[extra_pairs[:, 1]]
         pairs = np.concatenate([pairs, extra_pairs[keep & (band[extra_pairs[:, 0]] | band[extra_pairs[:, 1]])]])
-    if pairs.size == 0:
-        return shared, source_cell
-    tail = np.concatenate([pairs[:, 0], pairs[:, 1]])  # directed: tail -> head
-    head = np.concatenate([pairs[:, 1], pairs[:, 0]])
-    open_ = shared[head] < 0
-    tail, head = tail[open_], head[open_]
-    # sorted once by head, highest tail c first; masks keep the order, so the first
-    # entry per head in any ring is its highest-c neighbour already assigned
-    order = np.argsort(head + 0.999 * (1.0 - np.clip(c[tail], 0.0, 1.0)))  # one float key: faster than lexsort
-    tail, head = tail[order], head[order]
-    for _ in range(rings):
-        grow = shared[tail] >= 0
-        if not grow.any():
-            break
-        src, dst = tail[grow], head[grow]
-        first = np.concatenate([[True], dst[1:] != dst[:-1]])
-        dst, src = dst[first], src[first]
-        shared[dst] = shared[src]
-        source_cell[dst] = source_cell[src]
-        open_ = shared[head] < 0
-        tail, head = tail[open_], head[open_]
-    else:
-        if tail.size:
-            _finish_band_by_distance(mesh, pairs, band, shared, source_cell, extra_pairs)
-    return shared, source_cell
+    full_shared = np.full(n, -1, dtype=np.int64)
+    full_shared[cells] = shared
+    source_cell = np.arange(n)
+    source_cell[cells] = cells[root]
+    _finish_band_by_distance(mesh, pairs, band, full_shared, source_cell, extra_pairs)
+    return full_shared[cells], np.searchsorted(cells, source_cell[cells])
 
 
 def _finish_band_by_distance(mesh, pairs, band, shared, source_cell, extra_pairs):
@@ -400,7 +524,10 @@ def _group_extrema(groups: np.ndarray, lo: np.ndarray, hi: np.ndarray, n: int):
     out_hi = np.full((n, hi.shape[1]), np.nan)
     if groups.size == 0:
         return out_lo, out_hi
-    order = np.argsort(groups, kind="stable")
+    if n <= np.iinfo(np.int16).max:
+        order = np.argsort(groups.astype(np.int16), kind="stable")  # a radix sort for 16-bit keys
+    else:
+        order = np.argsort(groups, kind="stable")
     g = groups[order]
     starts = np.flatnonzero(np.concatenate([[True], g[1:] != g[:-1]]))
     out_lo[g[starts]] = np.minimum.reduceat(lo[order], starts, axis=0)
@@ -482,8 +609,9 @@ def label_droplets(mesh: Mesh, c_cell, *, level: float = 0.5, connectivity: str 
     droplet nearest to it along the cell graph (face pairs and periodic
     pairs), counted in rings of cells grown breadth first from all droplet
     cores at once; a cell reached from two droplets in the same ring takes
-    the droplet of its neighbour with the higher c. Between two droplets the
-    band is thus split at the middle. After 32 rings (a wide plateau of
+    the droplet of its neighbour with the higher c (clipped to [0, 1]; on
+    equal c, the neighbour with the lower cell number). Between two droplets
+    the band is thus split at the middle. After 32 rings (a wide plateau of
     band values) the remaining cells go to the nearest assigned cell along
     centroid distances (multi-source Dijkstra). Band cells in a band
     region that touches no droplet are left out of every droplet. The contour
@@ -550,60 +678,72 @@ def label_droplets(mesh: Mesh, c_cell, *, level: float = 0.5, connectivity: str 
                               fix="pass the index of the cell holding each contour element")
 
     dim = mesh.dimension
+    n_cells = mesh.n_cells
     finite = np.isfinite(c)
     c0 = np.where(finite, c, 0.0)
     dV = mesh.cell_measures
     weights = c0 * dV
-    inside = c0 > level
+    # all further work on the near cells (c above the band floor: cores and band), numbered
+    # locally in mesh order; local number k stands for "no cell"
+    cells = np.flatnonzero(c0 > band_floor)
+    k = cells.size
+    local = np.full(n_cells + 1, k, dtype=np.int64)  # entry n_cells (index -1): "no cell"
+    local[cells] = np.arange(k)
+    c_near = c0[cells]
+    core = c_near > level
+    neighbours = np.take(local, np.take(_neighbour_table(mesh), cells, axis=0))  # take: faster than [] on rows
 
-    near_pairs = _near_face_pairs(mesh, c0 > band_floor)  # one pass over the face pairs for both uses
-    n_pieces, piece = _pieces(mesh, inside, connectivity, near_pairs)
+    n_pieces, piece = _pieces(mesh, cells, core, neighbours, connectivity)
     links = [_periodic_pairs(mesh, ax) for ax in axes]  # (pairs, low end, period) per axis
-    n_drop, droplet_of_piece, offset, spanning = _join_periodic(n_pieces, piece, links)
+    local_links = [(local[pairs], lo, period) for pairs, lo, period in links]
+    n_drop, droplet_of_piece, offset, spanning = _join_periodic(n_pieces, piece, local_links)
 
     # number droplets in the order of their first cell, whatever path labelled them
-    raw = np.full(mesh.n_cells, -1, dtype=np.int64)
-    raw[piece >= 0] = droplet_of_piece[piece[piece >= 0]]
-    cells_in = np.flatnonzero(raw >= 0)
-    first = np.full(n_drop, mesh.n_cells, dtype=np.int64)
-    found, where = np.unique(raw[cells_in], return_index=True)
-    first[found] = cells_in[where]
+    core_local = np.flatnonzero(core)
+    raw = droplet_of_piece[piece[core_local]]
+    first = np.full(n_drop, k, dtype=np.int64)
+    found, where = np.unique(raw, return_index=True)
+    first[found] = core_local[where]
     rank = np.empty(n_drop, dtype=np.int64)
     rank[np.argsort(first, kind="stable")] = np.arange(n_drop)
-    labels = np.full(mesh.n_cells, -1, dtype=np.int64)
-    labels[cells_in] = rank[raw[cells_in]]
+    label = np.full(k, -1, dtype=np.int64)
+    label[core_local] = rank[raw]
     spanning_raw, spanning = spanning, np.zeros(n_drop, dtype=bool)
     spanning[rank] = spanning_raw
 
-    extra = np.concatenate([p for p, _, _ in links]) if links else np.empty((0, 2), np.int64)
-    shared, source_cell = _share_band(mesh, c0, labels, extra, band_floor, near_pairs=near_pairs)
+    extra = np.concatenate([p for p, _, _ in local_links]) if links else np.empty((0, 2), np.int64)
+    extra = extra[(extra < k).all(axis=1)]
+    shared, root, far = _share_band(label, c_near, neighbours, extra)
+    if far:  # a wide plateau: the rest by distance along the centroids
+        shared, root = _finish_far_band(mesh, cells, label, shared, root, links)
 
-    # unwrapped coordinates: core cells by their piece's shift, band cells next to their source cell
-    X = mesh.cell_centroids
-    box_lo, box_hi = _corner_boxes(mesh)
-    if axes:
-        X, box_lo, box_hi = X.copy(), box_lo.copy(), box_hi.copy()
-        shift = np.zeros((mesh.n_cells, dim))
-        core = piece >= 0
-        for k, ax in enumerate(axes):
-            shift[core, ax] = offset[piece[core], k]
-        band_cells = np.flatnonzero((shared >= 0) & ~core)
-        for ax, (_, _, period) in zip(axes, links):
-            ref = X[source_cell[band_cells], ax] + shift[source_cell[band_cells], ax]
-            shift[band_cells, ax] = period * np.round((ref - X[band_cells, ax]) / period)
-        X += shift
-        box_lo += shift
-        box_hi += shift
-
-    member = shared >= 0
+    # unwrapped coordinates: core cells by their piece's shift, band cells next to their root cell
+    member = np.flatnonzero(shared >= 0)
     g = shared[member]
-    w = weights[member]
+    member_cells = cells[member]
+    X = np.take(mesh.cell_centroids, member_cells, axis=0)
+    box_lo, box_hi = _core_boxes(mesh, cells[core_local])
+    if axes:
+        shift = np.zeros((k, dim))
+        for j, ax in enumerate(axes):
+            shift[core_local, ax] = offset[piece[core_local], j]
+        band_member = member[~core[member]]
+        source = root[band_member]
+        centroid_all = mesh.cell_centroids
+        for ax, (_, _, period) in zip(axes, links):
+            ref = centroid_all[cells[source], ax] + shift[source, ax]
+            shift[band_member, ax] = period * np.round((ref - centroid_all[cells[band_member], ax]) / period)
+        X = X + shift[member]
+        box_lo = box_lo + shift[core_local]
+        box_hi = box_hi + shift[core_local]
+
+    w = weights[member_cells]
     volume = np.bincount(g, weights=w, minlength=n_drop)
-    threshold_volume = np.bincount(labels[inside], weights=dV[inside], minlength=n_drop)
+    threshold_volume = np.bincount(label[core_local], weights=dV[cells[core_local]], minlength=n_drop)
     with np.errstate(invalid="ignore", divide="ignore"):
-        centroid = np.stack([np.bincount(g, weights=w * X[member, d], minlength=n_drop)
+        centroid = np.stack([np.bincount(g, weights=w * X[:, d], minlength=n_drop)
                              for d in range(dim)], axis=1) / volume[:, None]
-        h_local = np.bincount(g, weights=w * mesh.cell_sizes[member], minlength=n_drop) / volume
+        h_local = np.bincount(g, weights=w * mesh.cell_sizes[member_cells], minlength=n_drop) / volume
     back = np.zeros((n_drop, dim))  # whole periods that put each centroid back in the domain
     for ax, (_, lo, period) in zip(axes, links):
         back[:, ax] = period * np.floor((centroid[:, ax] - lo) / period)
@@ -613,13 +753,17 @@ def label_droplets(mesh: Mesh, c_cell, *, level: float = 0.5, connectivity: str 
         diameter = 2.0 * np.sqrt(vol_pos / np.pi)
     else:
         diameter = np.cbrt(6.0 * vol_pos / np.pi)
-    bmin, bmax = _group_extrema(labels[inside], box_lo[inside], box_hi[inside], n_drop)
+    bmin, bmax = _group_extrema(label[core_local], box_lo, box_hi, n_drop)
     bmin -= back
     bmax -= back
 
+    labels_out = np.full(n_cells, -1, dtype=np.int32)
+    labels_out[cells] = label
+    shared_out = np.full(n_cells, -1, dtype=np.int32)
+    shared_out[cells] = shared
     size = np.full(n_drop, np.nan)
     if interface_cells is not None and icells.size:
-        owner = shared[icells]
+        owner = shared_out[icells]
         ok = owner >= 0
         size = np.bincount(owner[ok], weights=isizes[ok], minlength=n_drop).astype(float)
         size[size <= 0] = np.nan
@@ -635,7 +779,7 @@ def label_droplets(mesh: Mesh, c_cell, *, level: float = 0.5, connectivity: str 
     if vel is not None:
         plane = list(mesh.plane_axes[:dim])
         comps = plane if vel.shape[1] == dim else [0, 1, 2]
-        vsel = vel[member]
+        vsel = np.take(vel, member_cells, axis=0)
         for j, axis in enumerate(comps):
             if vel.shape[1] == 3:
                 j = axis
@@ -674,5 +818,5 @@ def label_droplets(mesh: Mesh, c_cell, *, level: float = 0.5, connectivity: str 
     table["under_resolved"] = np.asarray(0.5 * np.nan_to_num(diameter) < resolution_cells * h_local, dtype=bool)
     table["spanning"] = spanning.astype(bool)
     table = table[list(TABLE_COLUMNS)]
-    return DropletLabels(labels=labels.astype(np.int32), shared_labels=shared.astype(np.int32),
+    return DropletLabels(labels=labels_out, shared_labels=shared_out,
                          table=table, weights=weights, level=level, periodic=names)
