@@ -313,8 +313,9 @@ class Mesh:
     @cached_property
     def bounds(self) -> np.ndarray:
         """``[[xmin, ymin, zmin], [xmax, ymax, zmax]]`` of the points used by cells."""
-        used = self.points[self.used_points]
-        return np.vstack([used.min(axis=0), used.max(axis=0)])
+        used = self.points if self.used_points.size == self.n_points else self.points[self.used_points]
+        # column by column: a reduction over the long axis of each coordinate
+        return np.array([[used[:, d].min() for d in range(3)], [used[:, d].max() for d in range(3)]])
 
     @cached_property
     def used_points(self) -> np.ndarray:
@@ -341,8 +342,8 @@ class Mesh:
         """
         if self.dimension != 2:
             return (0, 1, 2)
-        used = self.points[self.used_points]
-        extent = used.max(axis=0) - used.min(axis=0)
+        lo, hi = self.bounds
+        extent = hi - lo
         scale = max(float(extent.max()), 1e-300)
         flat = [ax for ax in range(3) if extent[ax] <= 1e-9 * scale]
         if not flat:
@@ -476,10 +477,10 @@ class Mesh:
         dtype = _index_dtype(self.n_points + 1)
         columns = np.full((width, int(row_starts[-1])), -1, dtype=dtype)
         for block, start in zip(self.blocks, row_starts[:-1]):
-            conn, n = block.connectivity, len(block)
+            corners, n = np.ascontiguousarray(block.connectivity.T, dtype=dtype), len(block)
             for j, face in enumerate(self._local_faces(block)):
                 rows = slice(int(start) + j * n, int(start) + (j + 1) * n)
-                for t, col in enumerate(_sort_columns([conn[:, i].astype(dtype) for i in face])):
+                for t, col in enumerate(_sort_columns([corners[i] for i in face])):
                     columns[width - len(face) + t, rows] = col
         return columns, row_starts
 
@@ -661,22 +662,22 @@ class Mesh:
         flat_points = np.ravel_multi_index(tuple(idx), point_shape)
         if not _all_distinct(flat_points, self.n_points):
             return None
-        # every cell spans one step along every axis: corner indices column by column
-        lows = []
-        for i in idx:
-            lo = hi = None
-            for block in self.blocks:
-                conn = block.connectivity
-                block_lo, block_hi = i[conn[:, 0]], i[conn[:, 0]]
-                for j in range(1, conn.shape[1]):
-                    v = i[conn[:, j]]
-                    np.minimum(block_lo, v, out=block_lo)
-                    np.maximum(block_hi, v, out=block_hi)
-                lo = block_lo if lo is None else np.concatenate([lo, block_lo])
-                hi = block_hi if hi is None else np.concatenate([hi, block_hi])
-            if np.any(hi - lo != 1):
-                return None
-            lows.append(lo)
+        # every cell spans one step along every axis: corner indices column by column, in chunks
+        conn = self.blocks[0].connectivity if len(self.blocks) == 1 else np.concatenate(
+            [b.connectivity for b in self.blocks])
+        lows = [np.empty(self.n_cells, dtype=small) for _ in idx]
+        for start in range(0, self.n_cells, _CHUNK):
+            corners = np.ascontiguousarray(conn[start:start + _CHUNK].T)
+            for i, low in zip(idx, lows):
+                lo, hi = i[corners[0]], i[corners[0]]
+                for c in corners[1:]:
+                    v = i[c]
+                    np.minimum(lo, v, out=lo)
+                    np.maximum(hi, v, out=hi)
+                hi -= lo
+                if np.any(hi != 1):
+                    return None
+                low[start:start + _CHUNK] = lo
         flat_cells = np.ravel_multi_index(tuple(lows), cell_shape)
         if not _all_distinct(flat_cells, self.n_cells):
             return None
