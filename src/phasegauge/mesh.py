@@ -18,6 +18,7 @@ that order.
 from __future__ import annotations
 
 import hashlib
+import sys
 from dataclasses import dataclass
 from functools import cached_property
 
@@ -884,9 +885,14 @@ def _sort_order(key: np.ndarray, key_bits: int) -> tuple[np.ndarray, np.ndarray]
         return order, key[order]
     packed = key  # packed in place: the caller hands the key over
     packed <<= np.int64(shift)
-    packed |= np.arange(n, dtype=np.int64)
+    for start in range(0, n, _CHUNK):  # positions below the key (small temporaries)
+        packed[start:start + _CHUNK] |= np.arange(start, min(start + _CHUNK, n), dtype=np.int64)
     packed.sort()
-    order = (packed & np.int64((1 << shift) - 1)).astype(_index_dtype(n), copy=False)
+    if shift < 31:  # positions fit in the low 32-bit half of each entry
+        low = packed.view(np.int32)[0 if sys.byteorder == "little" else 1::2]
+        order = low & np.int32((1 << shift) - 1)
+    else:
+        order = packed & np.int64((1 << shift) - 1)
     packed >>= np.int64(shift)
     return order, packed
 
@@ -932,17 +938,22 @@ def _group_columns(columns: list) -> tuple[np.ndarray, np.ndarray]:
                 part <<= np.int64(shift)
             key = part if key is None else np.bitwise_or(key, part, out=key)
             shift += widths[j]
+            del part
         step, ordered = _sort_order(key, shift)
         del key
-        rank = np.zeros(n, dtype=index)
-        np.cumsum(ordered[1:] != ordered[:-1], out=rank[1:])
-        del ordered
-        ranks = [r[step] for r in ranks] + [rank]
+        ranks = [r[step] for r in ranks]
         order = step if order is None else order[step]
         del step
+        if digit is not digits[-1]:
+            rank = np.zeros(n, dtype=index)
+            np.cumsum(ordered[1:] != ordered[:-1], out=rank[1:])
+            ranks.append(rank)
+            del ordered, rank
     # rows differ where any digit differs
     new = np.zeros(n, dtype=bool)
     new[0] = True
+    np.not_equal(ordered[1:], ordered[:-1], out=new[1:])
+    del ordered
     for r in ranks:
         new[1:] |= r[1:] != r[:-1]
     return order, np.flatnonzero(new)
