@@ -215,6 +215,41 @@ def test_face_topology_with_point_ids_too_wide_for_one_pass():
     assert np.array_equal(big.face_pairs, m.face_pairs)
 
 
+def _same_partition(a, b):
+    """True when two face numberings name the same faces (a relabelling, one to one)."""
+    pairs = {}
+    return all(pairs.setdefault(x, y) == y for x, y in zip(a.ravel(), b.ravel())) and \
+        len(set(pairs.values())) == len(pairs)
+
+
+def _lexicographic_numbers(m):
+    _, _, _, _, inverse = _reference_topology(m)
+    return inverse.reshape(6, -1).T
+
+
+def test_grid_face_numbers_name_the_same_faces():
+    # a regular grid whose cells list their corners in four different local orders
+    m = grid_mesh((4, 3, 2), [(0, 1), (0, 2), (0, 3)])
+    turns = np.array([[0, 1, 2, 3, 4, 5, 6, 7], [1, 2, 3, 0, 5, 6, 7, 4], [4, 7, 6, 5, 0, 3, 2, 1],
+                      [3, 0, 1, 2, 7, 4, 5, 6]])
+    conn = m.blocks[0].connectivity
+    conn = conn[np.arange(len(conn))[:, None], turns[np.arange(len(conn)) % 4]]
+    g = Mesh(m.points, [("hexahedron", conn)])
+    assert g.regular_grid is not None and g._grid_face_numbers is not None
+    assert _same_partition(g.face_numbers()[0], _lexicographic_numbers(g))
+    assert "_face_topology" not in g.__dict__  # no grouping was needed
+
+
+def test_grid_face_numbers_fall_back_for_a_degenerate_face():
+    m = grid_mesh((2, 2, 2))
+    conn = m.blocks[0].connectivity.copy()
+    first = int(np.argmin(conn[:, 0]))  # the cell at the origin
+    conn[first, 7] = conn[first, 6]  # its top face repeats a corner (still spans one grid step)
+    g = Mesh(m.points, [("hexahedron", conn)])
+    assert g.regular_grid is not None and g._grid_face_numbers is None
+    assert np.array_equal(g.face_numbers()[0], _lexicographic_numbers(g))
+
+
 def test_old_face_layout_still_available():
     m = grid_mesh((2, 2, 1), kind="mixed")
     faces, owners, order, starts = m._faces

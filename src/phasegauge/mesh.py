@@ -529,6 +529,8 @@ class Mesh:
         # face numbers of the cells that have quad faces (split by the contouring); others None
         numbers = [None] * len(self.blocks)
         quads = [b for b, block in enumerate(self.blocks) if block.cell_type in ("hexahedron", "wedge", "pyramid")]
+        if quads and self.dimension == 3 and self.regular_grid is not None and self._grid_face_numbers is not None:
+            quads = []  # :meth:`face_numbers` numbers a grid's faces by their grid positions
         if quads:
             dtype = _index_dtype(starts.size)
             group = np.empty(m, dtype=dtype)
@@ -542,11 +544,49 @@ class Mesh:
     def face_numbers(self) -> list:
         """Per block, the number of each local face of each cell, shape (n, faces per cell).
 
-        Faces shared by two cells get one number; numbers run over the whole mesh
-        (0 to the number of distinct faces - 1). Kept (int32 where it fits) for blocks
-        of hexahedra, wedges and pyramids only; None for other blocks.
+        Faces shared by two cells get one number. Kept (int32 where it fits) for
+        blocks of hexahedra, wedges and pyramids only; None for other blocks.
+        Faces are numbered in the lexicographic order of their sorted corners,
+        except on a regular grid of hexahedra, where they are numbered by their
+        normal axis and grid position (no grouping needed); the numbers need
+        not run without gaps.
         """
+        if self.dimension == 3 and self.regular_grid is not None:
+            numbers = self._grid_face_numbers
+            if numbers is not None:
+                return numbers
         return self._face_topology["numbers"]
+
+    @cached_property
+    def _grid_face_numbers(self) -> list | None:
+        """Face numbers of a regular grid of hexahedra from the grid positions of the corners.
+
+        Face ``(axis a, plane p, lower cell indices along the other two axes)`` gets
+        ``offset[a] + ravel(...)``. The same faces as the general grouping (faces with the
+        same corner points): every face must lie in one grid plane with its four corners on
+        the four corners of one grid square, else None (the general grouping is used).
+        """
+        grid = self.regular_grid
+        cells = grid.cell_shape
+        small = np.int16 if max(grid.point_shape) < 2 ** 15 else np.int64
+        position = [i.astype(small) for i in np.unravel_index(grid.point_index, grid.point_shape)]
+        shapes = [tuple(n + (a == axis) for a, n in enumerate(cells)) for axis in range(3)]
+        offsets = np.cumsum([0] + [int(np.prod(s)) for s in shapes])
+        dtype = _index_dtype(int(offsets[-1]))
+        out = []
+        for block in self.blocks:
+            conn = block.connectivity
+            faces = _FACES[block.cell_type]
+            numbers = np.empty((len(block), len(faces)), dtype=dtype)
+            for start in range(0, len(block), _CHUNK):
+                corners = np.ascontiguousarray(conn[start:start + _CHUNK].T)
+                for j, face in enumerate(faces):
+                    ids = _grid_face_ids([[i[corners[c]] for c in face] for i in position], shapes, offsets)
+                    if ids is None:
+                        return None
+                    numbers[start:start + _CHUNK, j] = ids
+            out.append(numbers)
+        return out
 
     @property
     def _faces(self):
@@ -819,6 +859,53 @@ class Mesh:
 
 # ---------------------------------------------------------------------------
 # grouping equal rows
+
+#: cells (or rows) per chunk where work goes column by column: the temporaries stay in cache
+_CHUNK = 1 << 15
+
+
+def _grid_face_ids(v: list, shapes: list, offsets: np.ndarray) -> np.ndarray | None:
+    """Numbers of quad faces from their corners' grid positions ``v[axis][corner]`` (each (n,)).
+
+    None when a face does not lie in one grid plane on the four corners of one grid square.
+    """
+    n = v[0][0].size
+    ids = np.full(n, -1, dtype=np.int64)
+    for axis in range(3):
+        a = v[axis]
+        flat = (a[0] == a[1]) & (a[0] == a[2]) & (a[0] == a[3])
+        if not flat.any():
+            continue
+        whole = bool(flat.all())  # usually: a generator orders every cell's corners alike
+        if whole and np.any(ids >= 0) or not whole and np.any(ids[flat] >= 0):
+            return None  # flat along two axes: a degenerate face
+        pick = (lambda x: x) if whole else (lambda x: x[flat])  # noqa: E731
+        index = [None, None, None]
+        index[axis] = pick(a[0])
+        seen = np.zeros(index[axis].size, dtype=np.uint8)
+        codes = [np.zeros_like(seen) for _ in range(4)]
+        for bit, other in ((0, (axis + 1) % 3), (1, (axis + 2) % 3)):
+            b = [pick(x) for x in v[other]]
+            low = np.minimum(np.minimum(b[0], b[1]), np.minimum(b[2], b[3]))
+            high = np.maximum(np.maximum(b[0], b[1]), np.maximum(b[2], b[3]))
+            if np.any(high - low != 1):
+                return None
+            index[other] = low
+            for k in range(4):
+                codes[k] |= (b[k] != low).view(np.uint8) << np.uint8(bit)
+        # the four corners are the four corners of the square, each once
+        for code in codes:
+            seen |= np.left_shift(np.uint8(1), code)
+        if np.any(seen != 15):
+            return None
+        number = offsets[axis] + np.ravel_multi_index(tuple(index), shapes[axis])
+        if whole:
+            ids = number
+        else:
+            ids[flat] = number
+    if np.any(ids < 0):
+        return None
+    return ids
 
 
 def _unique_ints(values: np.ndarray) -> np.ndarray:
@@ -1099,8 +1186,6 @@ def _block_geometry(cell_type: str, X: np.ndarray) -> tuple[np.ndarray, np.ndarr
 
 # ---------------------------------------------------------------------------
 # per-block geometry by corner columns, in chunks (the fast paths)
-
-_CHUNK = 1 << 15
 
 #: a hexahedron or wedge counts as affine (a parallelepiped, a prism with equal parallel ends) when
 #: the size of its non-affine map coefficients times its edge size squared is at most this share of
