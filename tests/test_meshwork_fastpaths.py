@@ -185,7 +185,7 @@ def _reference_topology(m):
 def test_face_topology_against_numpy_unique(kind):
     dim = 2 if kind in ("quad", "triangle", "polygon") else 3
     m = grid_mesh((3, 3, 2)[:dim], kind="mixed" if kind == "mixed" else kind, jitter=0.2)
-    pairs, corners, owner, uniq, inverse = _reference_topology(m)
+    pairs, corners, owner, _, inverse = _reference_topology(m)
     assert np.array_equal(m.face_pairs, pairs)
     assert np.array_equal(m.boundary_faces[0], corners)  # lexicographic order of the corners
     assert np.array_equal(m.boundary_faces[1], owner)

@@ -879,7 +879,9 @@ def _grid_face_ids(v: list, shapes: list, offsets: np.ndarray) -> np.ndarray | N
         whole = bool(flat.all())  # usually: a generator orders every cell's corners alike
         if whole and np.any(ids >= 0) or not whole and np.any(ids[flat] >= 0):
             return None  # flat along two axes: a degenerate face
-        pick = (lambda x: x) if whole else (lambda x: x[flat])  # noqa: E731
+        def pick(x, flat=flat, whole=whole):
+            return x if whole else x[flat]
+
         index = [None, None, None]
         index[axis] = pick(a[0])
         seen = np.zeros(index[axis].size, dtype=np.uint8)
@@ -992,6 +994,11 @@ def _group_columns(columns: list) -> tuple[np.ndarray, np.ndarray]:
     each group of equal rows in that order. Exact: the rows are sorted by
     their own values, packed in 63-bit digits (least significant digit first,
     each pass stable), never by a hash.
+
+    References
+    ----------
+    Least-significant-digit radix sorting with a stable sort per digit: Knuth, D. E.
+    (1998), The Art of Computer Programming, vol. 3, 2nd ed., section 5.2.5.
     """
     n = columns[0].size if columns else 0
     if n == 0:
@@ -1298,8 +1305,7 @@ def _hex_columns(P: list):
     size = sum(np.abs(v[i]) for v in (A, B, C) for i in r3)
     bent = np.flatnonzero(nonaffine * size * size > _AFFINE * np.abs(volume))
     if bent.size:
-        sub = lambda v: [v[i][bent] for i in r3]  # noqa: E731
-        Ab, Bb, Cb, Gb = sub(A), sub(B), sub(C), sub(G)
+        Ab, Bb, Cb, Gb = ([v[i][bent] for i in r3] for v in (A, B, C, G))
         D = [d[i][bent] + 0.5 * Gb[i] for i in r3]
         E = [e[i][bent] + 0.5 * Gb[i] for i in r3]
         F = [f[i][bent] + 0.5 * Gb[i] for i in r3]
