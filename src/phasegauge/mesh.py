@@ -112,9 +112,9 @@ class RegularGrid:
         Point coordinates along each grid axis (2 in 2D, 3 in 3D), increasing.
     mesh_axes : tuple of int
         Which of the mesh's x, y, z coordinates each grid axis is.
-    cell_index : ndarray of shape (n_cells,)
+    cell_index : ndarray of shape (n_cells,), int32 (int64 for more than 2**31 cells)
         Flat C-order index of each mesh cell in the array of shape ``cell_shape``.
-    point_index : ndarray of shape (n_points,)
+    point_index : ndarray of shape (n_points,), int32 (int64 for more than 2**31 points)
         Flat C-order index of each mesh point in the array of shape ``point_shape``.
     uniform : bool
         True when every axis has one spacing.
@@ -700,7 +700,7 @@ class Mesh:
             if np.any(np.abs(values[np.minimum(i, values.size - 1)] - col) > tol):
                 return None
             idx.append(i.astype(small))
-        flat_points = np.ravel_multi_index(tuple(idx), point_shape)
+        flat_points = np.ravel_multi_index(tuple(idx), point_shape).astype(_index_dtype(self.n_points), copy=False)
         if not _all_distinct(flat_points, self.n_points):
             return None
         # every cell spans one step along every axis: corner indices column by column, in chunks
@@ -719,7 +719,7 @@ class Mesh:
                 if np.any(hi != 1):
                     return None
                 low[start:start + _CHUNK] = lo
-        flat_cells = np.ravel_multi_index(tuple(lows), cell_shape)
+        flat_cells = np.ravel_multi_index(tuple(lows), cell_shape).astype(_index_dtype(self.n_cells), copy=False)
         if not _all_distinct(flat_cells, self.n_cells):
             return None
         steps = [np.diff(a) for a in axes]
