@@ -18,6 +18,7 @@ that order.
 from __future__ import annotations
 
 import hashlib
+import sys
 from dataclasses import dataclass
 from functools import cached_property
 
@@ -111,9 +112,9 @@ class RegularGrid:
         Point coordinates along each grid axis (2 in 2D, 3 in 3D), increasing.
     mesh_axes : tuple of int
         Which of the mesh's x, y, z coordinates each grid axis is.
-    cell_index : ndarray of shape (n_cells,)
+    cell_index : ndarray of shape (n_cells,), int32 (int64 for more than 2**31 cells)
         Flat C-order index of each mesh cell in the array of shape ``cell_shape``.
-    point_index : ndarray of shape (n_points,)
+    point_index : ndarray of shape (n_points,), int32 (int64 for more than 2**31 points)
         Flat C-order index of each mesh point in the array of shape ``point_shape``.
     uniform : bool
         True when every axis has one spacing.
@@ -313,8 +314,9 @@ class Mesh:
     @cached_property
     def bounds(self) -> np.ndarray:
         """``[[xmin, ymin, zmin], [xmax, ymax, zmax]]`` of the points used by cells."""
-        used = self.points[self.used_points]
-        return np.vstack([used.min(axis=0), used.max(axis=0)])
+        used = self.points if self.used_points.size == self.n_points else self.points[self.used_points]
+        # column by column: a reduction over the long axis of each coordinate
+        return np.array([[used[:, d].min() for d in range(3)], [used[:, d].max() for d in range(3)]])
 
     @cached_property
     def used_points(self) -> np.ndarray:
@@ -341,8 +343,8 @@ class Mesh:
         """
         if self.dimension != 2:
             return (0, 1, 2)
-        used = self.points[self.used_points]
-        extent = used.max(axis=0) - used.min(axis=0)
+        lo, hi = self.bounds
+        extent = hi - lo
         scale = max(float(extent.max()), 1e-300)
         flat = [ax for ax in range(3) if extent[ax] <= 1e-9 * scale]
         if not flat:
@@ -356,7 +358,12 @@ class Mesh:
 
     @cached_property
     def coordinates(self) -> np.ndarray:
-        """Point coordinates in the analysis space: (n_points, 2) in 2D, (n_points, 3) in 3D."""
+        """Point coordinates in the analysis space: (n_points, 2) in 2D, (n_points, 3) in 3D.
+
+        In 3D this is :attr:`points` itself (not a copy).
+        """
+        if self.dimension == 3:
+            return self.points
         return np.ascontiguousarray(self.points[:, list(self.plane_axes)])
 
     # --------------------------------------------------------------- geometry
@@ -368,7 +375,7 @@ class Mesh:
         cent = np.empty((self.n_cells, dim))
         for block, start in zip(self.blocks, self.block_offsets[:-1]):
             sl = slice(int(start), int(start) + len(block))
-            s, c = _block_geometry(block.cell_type, X[block.connectivity])
+            s, c = _cell_geometry(block.cell_type, X, block.connectivity)
             signed[sl] = s
             cent[sl] = c
         return signed, cent
@@ -390,9 +397,13 @@ class Mesh:
         faces are handled; wedges use a degree-4 triangle rule times a 2-point
         Gauss rule (exact); pyramids are integrated as hexahedra whose top face
         collapses to the apex (exact for a bilinear base). 2D meshes whose cells are all
-        wound clockwise are accepted: measures are magnitudes.
+        wound clockwise are accepted: measures are magnitudes. Hexahedra and wedges that are
+        affine (parallelepipeds, prisms with parallel equal ends) take the triple product,
+        exact to rounding. When no cell is inverted this is the array of
+        :attr:`signed_measures` itself (not a copy).
         """
-        return np.abs(self._geometry[0])
+        signed = self._geometry[0]
+        return np.abs(signed) if np.signbit(signed).any() else signed
 
     @cached_property
     def inverted_cells(self) -> int:
@@ -429,77 +440,189 @@ class Mesh:
         """Sparse (n_cells, n_points) matrix, 1 where a point is a corner of a cell."""
         from scipy import sparse
 
-        indptr = [np.zeros(1, dtype=np.int64)]
-        last = 0
-        for block in self.blocks:
+        nnz = sum(b.connectivity.size for b in self.blocks)
+        dtype = _index_dtype(max(nnz, self.n_points) + 1)
+        indptr = np.empty(self.n_cells + 1, dtype=dtype)
+        indices = np.empty(nnz, dtype=dtype)
+        indptr[0] = last = 0
+        for block, start in zip(self.blocks, self.block_offsets[:-1]):
             n, k = block.connectivity.shape
-            indptr.append(last + k * np.arange(1, n + 1, dtype=np.int64))
+            indptr[start + 1:start + n + 1] = np.arange(last + k, last + k * n + 1, k, dtype=dtype)
+            indices[last:last + n * k] = block.connectivity.ravel()
             last += n * k
-        indices = np.concatenate([b.connectivity.ravel() for b in self.blocks])
-        m = sparse.csr_matrix((np.ones(indices.size), indices, np.concatenate(indptr)),
-                              shape=(self.n_cells, self.n_points))
+        m = sparse.csr_matrix((np.ones(nnz), indices, indptr), shape=(self.n_cells, self.n_points))
         if any(b.cell_type == "polygon" for b in self.blocks) or self.degenerate_cells:
             m.sum_duplicates()
             m.data[:] = 1.0  # a corner repeated in a degenerate cell counts once
         return m
 
+    def _local_faces(self, block: CellBlock) -> list:
+        """Local corner lists of the faces (3D) or edges (2D) of a block's cells."""
+        if block.cell_type == "polygon":
+            k = block.connectivity.shape[1]
+            return [(i, (i + 1) % k) for i in range(k)]
+        return _FACES[block.cell_type]
+
+    def _face_rows(self):
+        """Every face of every cell as sorted corner columns, block after block, face after face.
+
+        Returns ``(columns, row_starts)``: ``columns`` w equal-length arrays (w = 4 in 3D,
+        triangles with -1 in the first; 2 in 2D; the first is left out when every face is a
+        triangle), the corners of each row in increasing order; ``row_starts`` the first row of
+        each block. Row ``row_starts[b] + j * n_b + i`` is local face j of cell i of block b.
+        """
+        sizes = [len(f) for b in self.blocks for f in self._local_faces(b)]
+        width = 2 if self.dimension == 2 else (3 if max(sizes) == 3 else 4)
+        counts = [len(b) * len(self._local_faces(b)) for b in self.blocks]
+        row_starts = np.concatenate([[0], np.cumsum(counts)]).astype(np.int64)
+        dtype = _index_dtype(self.n_points + 1)
+        columns = np.full((width, int(row_starts[-1])), -1, dtype=dtype)
+        for block, start in zip(self.blocks, row_starts[:-1]):
+            corners, n = np.ascontiguousarray(block.connectivity.T, dtype=dtype), len(block)
+            for j, face in enumerate(self._local_faces(block)):
+                rows = slice(int(start) + j * n, int(start) + (j + 1) * n)
+                for t, col in enumerate(_sort_columns([corners[i] for i in face])):
+                    columns[width - len(face) + t, rows] = col
+        return columns, row_starts
+
+    def _row_owners(self, rows: np.ndarray, row_starts: np.ndarray) -> np.ndarray:
+        """The cell that owns each face row of :meth:`_face_rows`."""
+        if len(self.blocks) == 1:
+            return rows % np.int64(len(self.blocks[0]))
+        block = np.searchsorted(row_starts, rows, side="right") - 1
+        n = np.array([len(b) for b in self.blocks], dtype=np.int64)
+        return self.block_offsets[block] + (rows - row_starts[block]) % n[block]
+
     @cached_property
+    def _face_topology(self) -> dict:
+        """Face grouping, done once: what :attr:`face_pairs`, :attr:`boundary_faces` and the
+        face numbers of :meth:`face_numbers` are read from (the grouping itself is not kept).
+
+        Faces are numbered in the lexicographic order of their sorted corners.
+        """
+        columns, row_starts = self._face_rows()
+        order, starts = _group_columns(list(columns))
+        m = order.size
+        sizes = np.diff(starts, append=m).astype(_index_dtype(m + 1))
+        # faces owned by one cell only
+        lone = order[starts[sizes == 1]]
+        width = 2 if self.dimension == 2 else 4
+        corners = np.full((lone.size, width), -1, dtype=np.int64)
+        corners[:, width - columns.shape[0]:] = columns[:, lone].T
+        boundary = (corners, self._row_owners(lone, row_starts))
+        del columns, lone
+        # cells sharing a face: the two rows of every face seen twice
+        shared = starts[sizes == 2]
+        first = self._row_owners(order[shared], row_starts)
+        high = self._row_owners(order[shared + 1], row_starts)
+        del shared
+        low = np.minimum(first, high)
+        np.maximum(first, high, out=high)
+        apart = low != high
+        key = low[apart]
+        key *= np.int64(self.n_cells)
+        key += high[apart]
+        del first, low, high, apart
+        key = _unique_ints(key)
+        pairs = np.stack(np.divmod(key, np.int64(self.n_cells)), axis=1)
+        del key
+        # face numbers of the cells that have quad faces (split by the contouring); others None
+        numbers = [None] * len(self.blocks)
+        quads = [b for b, block in enumerate(self.blocks) if block.cell_type in ("hexahedron", "wedge", "pyramid")]
+        if quads and self.dimension == 3 and self.regular_grid is not None and self._grid_face_numbers is not None:
+            quads = []  # :meth:`face_numbers` numbers a grid's faces by their grid positions
+        if quads:
+            dtype = _index_dtype(starts.size)
+            group = np.empty(m, dtype=dtype)
+            group[order] = np.repeat(np.arange(starts.size, dtype=dtype), sizes)
+            for b in quads:
+                n, local = len(self.blocks[b]), len(self._local_faces(self.blocks[b]))
+                ids = group[row_starts[b]:row_starts[b] + local * n].reshape(local, n)
+                numbers[b] = np.ascontiguousarray(ids.T)
+        return {"pairs": pairs, "boundary": boundary, "numbers": numbers, "count": int(starts.size)}
+
+    def face_numbers(self) -> list:
+        """Per block, the number of each local face of each cell, shape (n, faces per cell).
+
+        Faces shared by two cells get one number. Kept (int32 where it fits) for
+        blocks of hexahedra, wedges and pyramids only; None for other blocks.
+        Faces are numbered in the lexicographic order of their sorted corners,
+        except on a regular grid of hexahedra, where they are numbered by their
+        normal axis and grid position (no grouping needed); the numbers need
+        not run without gaps.
+        """
+        if self.dimension == 3 and self.regular_grid is not None:
+            numbers = self._grid_face_numbers
+            if numbers is not None:
+                return numbers
+        return self._face_topology["numbers"]
+
+    @cached_property
+    def _grid_face_numbers(self) -> list | None:
+        """Face numbers of a regular grid of hexahedra from the grid positions of the corners.
+
+        Face ``(axis a, plane p, lower cell indices along the other two axes)`` gets
+        ``offset[a] + ravel(...)``. The same faces as the general grouping (faces with the
+        same corner points): every face must lie in one grid plane with its four corners on
+        the four corners of one grid square, else None (the general grouping is used).
+        """
+        grid = self.regular_grid
+        cells = grid.cell_shape
+        small = np.int16 if max(grid.point_shape) < 2 ** 15 else np.int64
+        position = [i.astype(small) for i in np.unravel_index(grid.point_index, grid.point_shape)]
+        shapes = [tuple(n + (a == axis) for a, n in enumerate(cells)) for axis in range(3)]
+        offsets = np.cumsum([0] + [int(np.prod(s)) for s in shapes])
+        dtype = _index_dtype(int(offsets[-1]))
+        out = []
+        for block in self.blocks:
+            conn = block.connectivity
+            faces = _FACES[block.cell_type]
+            numbers = np.empty((len(block), len(faces)), dtype=dtype)
+            for start in range(0, len(block), _CHUNK):
+                corners = np.ascontiguousarray(conn[start:start + _CHUNK].T)
+                for j, face in enumerate(faces):
+                    ids = _grid_face_ids([[i[corners[c]] for c in face] for i in position], shapes, offsets)
+                    if ids is None:
+                        return None
+                    numbers[start:start + _CHUNK, j] = ids
+            out.append(numbers)
+        return out
+
+    @property
     def _faces(self):
         """All cell faces (3D) or edges (2D) as sorted corners, their owner cell, grouped.
 
         Returns ``(faces, owners, order, starts)``: faces (m, w) with sorted corners (triangles
         padded with -1 in front), owners (m,), ``order`` a permutation that groups equal
         faces together and ``starts`` the first position of each group in that order.
+        Built on every call (not cached: the mesh keeps only what is read from it).
         """
-        rows, owners = [], []
-        width = 4 if self.dimension == 3 else 2
-        for block, start in zip(self.blocks, self.block_offsets[:-1]):
-            conn = block.connectivity
-            n = len(block)
-            cell_ids = np.arange(start, start + n)
-            if block.cell_type == "polygon":
-                k = conn.shape[1]
-                local = [(i, (i + 1) % k) for i in range(k)]
-            else:
-                local = _FACES[block.cell_type]
-            for face in local:
-                f = np.full((n, width), -1, dtype=np.int64)
-                f[:, width - len(face):] = conn[:, list(face)]
-                rows.append(f)
-                owners.append(cell_ids)
-        faces = _sort_small_rows(np.concatenate(rows))
-        owners = np.concatenate(owners)
-        order, starts = _group_rows(faces)
+        columns, row_starts = self._face_rows()
+        order, starts = _group_columns(list(columns))
+        width = 2 if self.dimension == 2 else 4
+        faces = np.full((columns.shape[1], width), -1, dtype=np.int64)
+        faces[:, width - columns.shape[0]:] = columns.T
+        owners = self._row_owners(np.arange(columns.shape[1]), row_starts)
         return faces, owners, order, starts
 
-    @cached_property
+    @property
     def face_pairs(self) -> np.ndarray:
         """Pairs of cells sharing a face (3D) or an edge (2D), shape (n_pairs, 2), sorted.
 
         Faces are matched by their corner points, so cells must share points
         (a conforming mesh); faces with hanging nodes do not connect.
         """
-        faces, owners, order, starts = self._faces
-        sizes = np.diff(np.append(starts, len(order)))
-        shared = starts[sizes == 2]
-        pairs = np.stack([owners[order[shared]], owners[order[shared + 1]]], axis=1)
-        pairs = _sort_small_rows(pairs[pairs[:, 0] != pairs[:, 1]])
-        if not pairs.size:
-            return pairs.reshape(0, 2)
-        key = _unique_ints(pairs[:, 0] * np.int64(self.n_cells) + pairs[:, 1])
-        return np.stack([key // self.n_cells, key % self.n_cells], axis=1)
+        return self._face_topology["pairs"]
 
-    @cached_property
+    @property
     def boundary_faces(self) -> tuple:
         """Faces (3D) or edges (2D) owned by one cell only: ``(corners, cell)``.
 
         ``corners`` has shape (n, 4) in 3D (triangles padded with -1 in front)
-        or (n, 2) in 2D.
+        or (n, 2) in 2D, sorted; the faces come in the lexicographic order of
+        their corners.
         """
-        faces, owners, order, starts = self._faces
-        sizes = np.diff(np.append(starts, len(order)))
-        lone = order[starts[sizes == 1]]
-        return faces[lone], owners[lone]
+        return self._face_topology["boundary"]
 
     def adjacency(self, kind: str = "face"):
         """Sparse symmetric (n_cells, n_cells) cell adjacency matrix.
@@ -556,41 +679,48 @@ class Mesh:
         used = self.used_points
         if used.size != self.n_points:
             return None
-        axes, idx = [], []
+        axes = []
         scale = float(np.ptp(X, axis=0).max()) or 1.0
         tol = 1e-9 * scale
         for d in range(self.dimension):
-            col = X[:, d]
-            s = np.sort(col)
-            breaks = np.nonzero(np.diff(s) > tol)[0]
-            starts = np.concatenate([[0], breaks + 1])
-            values = s[starts]
-            if values.size < 2:
+            s = np.sort(X[:, d])
+            starts = np.concatenate([[0], np.flatnonzero(np.diff(s) > tol) + 1])
+            if starts.size < 2:
                 return None
-            i = np.searchsorted(values + tol, col)
-            if np.any(np.abs(values[np.clip(i, 0, values.size - 1)] - col) > tol):
-                return None
-            axes.append(values)
-            idx.append(i)
+            axes.append(s[starts])
         point_shape = tuple(len(a) for a in axes)
-        if int(np.prod(point_shape)) != self.n_points:
-            return None
         cell_shape = tuple(n - 1 for n in point_shape)
-        if int(np.prod(cell_shape)) != self.n_cells:
+        if int(np.prod(point_shape)) != self.n_points or int(np.prod(cell_shape)) != self.n_cells:
             return None
-        pidx = np.stack(idx, axis=1)
-        flat_points = np.ravel_multi_index(tuple(pidx.T), point_shape)
-        if _unique_ints(flat_points).size != self.n_points:
+        idx = []
+        small = np.int16 if max(point_shape) < 2 ** 15 else np.int64
+        for d, values in enumerate(axes):
+            col = X[:, d]
+            i = np.searchsorted(values + tol, col)
+            if np.any(np.abs(values[np.minimum(i, values.size - 1)] - col) > tol):
+                return None
+            idx.append(i.astype(small))
+        flat_points = np.ravel_multi_index(tuple(idx), point_shape).astype(_index_dtype(self.n_points), copy=False)
+        if not _all_distinct(flat_points, self.n_points):
             return None
+        # every cell spans one step along every axis: corner indices column by column, in chunks
         conn = self.blocks[0].connectivity if len(self.blocks) == 1 else np.concatenate(
             [b.connectivity for b in self.blocks])
-        corner = pidx[conn]  # (n_cells, k, dim)
-        lo = corner.min(axis=1)
-        hi = corner.max(axis=1)
-        if np.any(hi - lo != 1):
-            return None
-        flat_cells = np.ravel_multi_index(tuple(lo.T), cell_shape)
-        if _unique_ints(flat_cells).size != self.n_cells:
+        lows = [np.empty(self.n_cells, dtype=small) for _ in idx]
+        for start in range(0, self.n_cells, _CHUNK):
+            corners = np.ascontiguousarray(conn[start:start + _CHUNK].T)
+            for i, low in zip(idx, lows):
+                lo, hi = i[corners[0]], i[corners[0]]
+                for c in corners[1:]:
+                    v = i[c]
+                    np.minimum(lo, v, out=lo)
+                    np.maximum(hi, v, out=hi)
+                hi -= lo
+                if np.any(hi != 1):
+                    return None
+                low[start:start + _CHUNK] = lo
+        flat_cells = np.ravel_multi_index(tuple(lows), cell_shape).astype(_index_dtype(self.n_cells), copy=False)
+        if not _all_distinct(flat_cells, self.n_cells):
             return None
         steps = [np.diff(a) for a in axes]
         uniform = all(np.allclose(s, s.mean(), rtol=1e-6, atol=0) for s in steps)
@@ -730,8 +860,54 @@ class Mesh:
 # ---------------------------------------------------------------------------
 # grouping equal rows
 
-_MIX = np.array([0x9E3779B97F4A7C15, 0xC2B2AE3D27D4EB4F, 0x165667B19E3779F9, 0x27D4EB2F165667C5],
-                dtype=np.uint64)
+#: cells (or rows) per chunk where work goes column by column: the temporaries stay in cache
+_CHUNK = 1 << 15
+
+
+def _grid_face_ids(v: list, shapes: list, offsets: np.ndarray) -> np.ndarray | None:
+    """Numbers of quad faces from their corners' grid positions ``v[axis][corner]`` (each (n,)).
+
+    None when a face does not lie in one grid plane on the four corners of one grid square.
+    """
+    n = v[0][0].size
+    ids = np.full(n, -1, dtype=np.int64)
+    for axis in range(3):
+        a = v[axis]
+        flat = (a[0] == a[1]) & (a[0] == a[2]) & (a[0] == a[3])
+        if not flat.any():
+            continue
+        whole = bool(flat.all())  # usually: a generator orders every cell's corners alike
+        if whole and np.any(ids >= 0) or not whole and np.any(ids[flat] >= 0):
+            return None  # flat along two axes: a degenerate face
+        def pick(x, flat=flat, whole=whole):
+            return x if whole else x[flat]
+
+        index = [None, None, None]
+        index[axis] = pick(a[0])
+        seen = np.zeros(index[axis].size, dtype=np.uint8)
+        codes = [np.zeros_like(seen) for _ in range(4)]
+        for bit, other in ((0, (axis + 1) % 3), (1, (axis + 2) % 3)):
+            b = [pick(x) for x in v[other]]
+            low = np.minimum(np.minimum(b[0], b[1]), np.minimum(b[2], b[3]))
+            high = np.maximum(np.maximum(b[0], b[1]), np.maximum(b[2], b[3]))
+            if np.any(high - low != 1):
+                return None
+            index[other] = low
+            for k in range(4):
+                codes[k] |= (b[k] != low).view(np.uint8) << np.uint8(bit)
+        # the four corners are the four corners of the square, each once
+        for code in codes:
+            seen |= np.left_shift(np.uint8(1), code)
+        if np.any(seen != 15):
+            return None
+        number = offsets[axis] + np.ravel_multi_index(tuple(index), shapes[axis])
+        if whole:
+            ids = number
+        else:
+            ids[flat] = number
+    if np.any(ids < 0):
+        return None
+    return ids
 
 
 def _unique_ints(values: np.ndarray) -> np.ndarray:
@@ -746,61 +922,140 @@ def _unique_ints(values: np.ndarray) -> np.ndarray:
     return s[np.concatenate([[True], s[1:] != s[:-1]])]
 
 
-def _sort_small_rows(rows: np.ndarray) -> np.ndarray:
-    """Sort each row of an (n, 2) or (n, 4) array with a sorting network (fast for many rows)."""
-    w = rows.shape[1]
-    if w == 2:
-        return np.stack([np.minimum(rows[:, 0], rows[:, 1]), np.maximum(rows[:, 0], rows[:, 1])], axis=1)
-    if w != 4:
-        return np.sort(rows, axis=1)
-    c = [rows[:, j].copy() for j in range(4)]
-    for a, b in ((0, 1), (2, 3), (0, 2), (1, 3), (1, 2)):
+def _index_dtype(n: int):
+    """int32 for indices (or index arithmetic) below ``n`` when they fit, else int64."""
+    return np.int32 if n < 2 ** 31 - 1 else np.int64
+
+
+# comparators of the smallest sorting networks (Knuth, TAOCP vol. 3, 5.3.4)
+_NETWORKS = {2: ((0, 1),), 3: ((1, 2), (0, 2), (0, 1)), 4: ((0, 1), (2, 3), (0, 2), (1, 3), (1, 2))}
+
+
+def _sort_columns(columns: list) -> list:
+    """Sort k <= 4 equal-length arrays elementwise (row i sorted across the arrays), by a network."""
+    c = list(columns)
+    for a, b in _NETWORKS.get(len(c), ()):
         lo = np.minimum(c[a], c[b])
         c[b] = np.maximum(c[a], c[b])
         c[a] = lo
-    return np.stack(c, axis=1)
+    return c
+
+
+def _sort_small_rows(rows: np.ndarray) -> np.ndarray:
+    """Sort each row of an (n, k) array; a sorting network for k <= 4 (fast for many rows)."""
+    if rows.shape[1] not in _NETWORKS:
+        return np.sort(rows, axis=1)
+    return np.stack(_sort_columns([rows[:, j] for j in range(rows.shape[1])]), axis=1)
+
+
+def _all_distinct(values: np.ndarray, n: int) -> bool:
+    """True when ``values`` (integers in 0 .. n - 1) are all different (a mask, no sort)."""
+    seen = np.zeros(n, dtype=bool)
+    seen[values] = True
+    return int(np.count_nonzero(seen)) == values.size
+
+
+def _bits(n: int) -> int:
+    """Bits needed for the integers 0 .. n - 1."""
+    return max(int(n - 1).bit_length(), 0)
+
+
+def _sort_order(key: np.ndarray, key_bits: int) -> tuple[np.ndarray, np.ndarray]:
+    """A permutation sorting ``key`` (non-negative int64 below ``2**key_bits``), ties by position.
+
+    The position is packed below the key where both fit in 63 bits, so one plain
+    ``np.sort`` (vectorised) replaces ``np.argsort`` (several times slower on millions of
+    keys). Returns ``(order, sorted_key)``; ``key`` is overwritten (it becomes ``sorted_key``).
+    """
+    n = key.size
+    shift = max(_bits(n), 1)
+    if key_bits + shift > 63:
+        order = np.argsort(key, kind="stable")
+        return order, key[order]
+    packed = key  # packed in place: the caller hands the key over
+    packed <<= np.int64(shift)
+    for start in range(0, n, _CHUNK):  # positions below the key (small temporaries)
+        packed[start:start + _CHUNK] |= np.arange(start, min(start + _CHUNK, n), dtype=np.int64)
+    packed.sort()
+    if shift < 31:  # positions fit in the low 32-bit half of each entry
+        low = packed.view(np.int32)[0 if sys.byteorder == "little" else 1::2]
+        order = low & np.int32((1 << shift) - 1)
+    else:
+        order = packed & np.int64((1 << shift) - 1)
+    packed >>= np.int64(shift)
+    return order, packed
+
+
+def _group_columns(columns: list) -> tuple[np.ndarray, np.ndarray]:
+    """Group equal rows of the table whose columns are ``columns`` (equal-length int arrays).
+
+    Returns ``order``, a permutation that sorts the rows lexicographically (so
+    equal rows are next to each other), and ``starts``, the first position of
+    each group of equal rows in that order. Exact: the rows are sorted by
+    their own values, packed in 63-bit digits (least significant digit first,
+    each pass stable), never by a hash.
+
+    References
+    ----------
+    Least-significant-digit radix sorting with a stable sort per digit: Knuth, D. E.
+    (1998), The Art of Computer Programming, vol. 3, 2nd ed., section 5.2.5.
+    """
+    n = columns[0].size if columns else 0
+    if n == 0:
+        return np.zeros(0, dtype=np.int64), np.zeros(0, dtype=np.int64)
+    lows = [int(c.min()) for c in columns]
+    widths = [_bits(int(c.max()) - lo + 1) for c, lo in zip(columns, lows)]
+    room = 63 - max(_bits(n), 1)
+    # digits: runs of neighbouring columns whose bits fit in one pass, last column first
+    digits, current, used = [], [], 0
+    for j in reversed(range(len(columns))):
+        if widths[j] == 0:
+            continue
+        if current and used + widths[j] > room:
+            digits.append(current)
+            current, used = [], 0
+        current.append(j)
+        used += widths[j]
+    if current:
+        digits.append(current)
+    if not digits:  # every row is the same
+        return np.arange(n, dtype=np.int64), np.zeros(1, dtype=np.int64)
+    order, ranks = None, []  # ranks: per digit done, the rank of each row's digit value, in order
+    index = _index_dtype(n)
+    for digit in digits:
+        key, shift = None, 0
+        for j in digit:  # least significant column first
+            part = (columns[j] if order is None else columns[j][order]).astype(np.int64)
+            if lows[j]:
+                part -= lows[j]
+            if shift:
+                part <<= np.int64(shift)
+            key = part if key is None else np.bitwise_or(key, part, out=key)
+            shift += widths[j]
+            del part
+        step, ordered = _sort_order(key, shift)
+        del key
+        ranks = [r[step] for r in ranks]
+        order = step if order is None else order[step]
+        del step
+        if digit is not digits[-1]:
+            rank = np.zeros(n, dtype=index)
+            np.cumsum(ordered[1:] != ordered[:-1], out=rank[1:])
+            ranks.append(rank)
+            del ordered, rank
+    # rows differ where any digit differs
+    new = np.zeros(n, dtype=bool)
+    new[0] = True
+    np.not_equal(ordered[1:], ordered[:-1], out=new[1:])
+    del ordered
+    for r in ranks:
+        new[1:] |= r[1:] != r[:-1]
+    return order, np.flatnonzero(new)
 
 
 def _group_rows(rows: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
-    """Group equal rows of a small-width int array.
-
-    Returns ``order`` (a permutation putting equal rows next to each other) and
-    ``starts`` (the first position of each group in that order). Rows are
-    hashed to one 64-bit key and sorted by it; equality of rows within a key
-    group is then checked, and the rare key collision falls back to an exact
-    lexicographic sort. When the rows' value ranges fit, the key is the exact
-    mixed-radix number of the row instead (no hashing, no check).
-    """
-    if rows.shape[0] == 0:
-        return np.zeros(0, dtype=np.int64), np.zeros(0, dtype=np.int64)
-    lo = rows.min(axis=0)
-    span = (rows.max(axis=0) - lo + 1).astype(np.float64)
-    varying = np.nonzero(span > 1)[0]
-    if np.prod(span[varying]) < 2.0 ** 62:
-        key = np.zeros(rows.shape[0], dtype=np.int64)
-        for j in varying:
-            key *= np.int64(span[j])
-            key += rows[:, j] - lo[j]
-        order = np.argsort(key)  # the order within a group does not matter
-        ks = key[order]
-        return order, np.nonzero(np.concatenate([[True], ks[1:] != ks[:-1]]))[0]
-    with np.errstate(over="ignore"):
-        key = np.zeros(rows.shape[0], dtype=np.uint64)
-        for j in range(rows.shape[1]):
-            key = (key ^ (rows[:, j].astype(np.uint64) + np.uint64(1))) * _MIX[j % 4]
-            key ^= key >> np.uint64(29)
-    order = np.argsort(key)  # the order within a group does not matter
-    ks = key[order]
-    new_key = np.concatenate([[True], ks[1:] != ks[:-1]])
-    sr = rows[order]
-    same_row = np.concatenate([[True], np.all(sr[1:] == sr[:-1], axis=1)])
-    if np.any(~new_key & ~same_row):  # two different rows share a key: sort exactly
-        order = np.lexsort(rows.T[::-1])
-        sr = rows[order]
-        boundary = np.concatenate([[True], np.any(sr[1:] != sr[:-1], axis=1)])
-    else:
-        boundary = new_key
-    return order, np.nonzero(boundary)[0]
+    """:func:`_group_columns` of the columns of an (n, w) int array."""
+    return _group_columns([rows[:, j] for j in range(rows.shape[1])])
 
 
 # ---------------------------------------------------------------------------
@@ -934,3 +1189,181 @@ def _block_geometry(cell_type: str, X: np.ndarray) -> tuple[np.ndarray, np.ndarr
             measure = -measure
         return measure, cent
     raise UnsupportedMeshError(f"no geometry for cell type '{cell_type}'")
+
+
+# ---------------------------------------------------------------------------
+# per-block geometry by corner columns, in chunks (the fast paths)
+
+#: a hexahedron or wedge counts as affine (a parallelepiped, a prism with equal parallel ends) when
+#: the size of its non-affine map coefficients times its edge size squared is at most this share of
+#: its volume; its volume is then exact to rounding and its centroid within ~1e-13 edge lengths
+_AFFINE = 1e-13
+
+
+def _cell_geometry(cell_type: str, X: np.ndarray, conn: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    """Signed measures and centroids of the cells ``conn`` (n, k) of one type, X (n_points, dim).
+
+    The same quantities as :func:`_block_geometry`, computed from the corners' coordinate columns
+    in chunks (small temporaries): simplices directly, quads in closed form, hexahedra and
+    wedges that are affine by their triple product, other hexahedra and pyramids by Gauss
+    points of the trilinear map written in its coefficients.
+    """
+    if cell_type == "polygon" or cell_type not in _COLUMN_GEOMETRY:
+        return _block_geometry(cell_type, X[conn])
+    n, dim = conn.shape[0], X.shape[1]
+    Xt = [np.ascontiguousarray(X[:, i]) for i in range(dim)]
+    signed = np.empty(n)
+    cent = np.empty((n, dim))
+    for lo in range(0, n, _CHUNK):
+        part = conn[lo:lo + _CHUNK]
+        # P[j][i]: coordinate i of corner j, each of shape (chunk,)
+        P = [[x[part[:, j]] for x in Xt] for j in range(conn.shape[1])]
+        s, c = _COLUMN_GEOMETRY[cell_type](P)
+        signed[lo:lo + _CHUNK] = s
+        for i in range(dim):
+            cent[lo:lo + _CHUNK, i] = c[i]
+    return signed, cent
+
+
+def _sub(a: list, b: list) -> list:
+    return [x - y for x, y in zip(a, b)]
+
+
+def _triple(a: list, b: list, c: list) -> np.ndarray:
+    """a . (b x c) for 3-vectors given as component lists (the cofactor order of :func:`_det`)."""
+    return (a[0] * (b[1] * c[2] - b[2] * c[1])
+            - a[1] * (b[0] * c[2] - b[2] * c[0])
+            + a[2] * (b[0] * c[1] - b[1] * c[0]))
+
+
+def _corner_mean(P: list) -> list:
+    """Per coordinate, the mean of the corners (summed in corner order)."""
+    out = []
+    for i in range(len(P[0])):
+        total = P[0][i] + P[1][i]
+        for j in range(2, len(P)):
+            total += P[j][i]
+        out.append(total / len(P))
+    return out
+
+
+def _simplex_columns(P: list):
+    """Triangles or tetrahedra: signed measure and centroid (as :func:`_simplex`)."""
+    p0 = P[0]
+    if len(P) == 3:
+        a, b = _sub(P[1], p0), _sub(P[2], p0)
+        return 0.5 * (a[0] * b[1] - a[1] * b[0]), _corner_mean(P)
+    a, b, c = _sub(P[1], p0), _sub(P[2], p0), _sub(P[3], p0)
+    return _triple(a, b, c) / 6.0, _corner_mean(P)
+
+
+def _quad_columns(P: list):
+    """Bilinear quads in closed form.
+
+    With x = m + A p + B q + D p q on p, q in [-1/2, 1/2] (m the corner mean), det J is
+    linear in p and q, so the area is det[A, B] exactly and the first moment is
+    (A (A x D) + B (D x B)) / 12.
+    """
+    x0, x1, x2, x3 = P
+    A = [0.5 * ((x1[i] - x0[i]) + (x2[i] - x3[i])) for i in range(2)]
+    B = [0.5 * ((x3[i] - x0[i]) + (x2[i] - x1[i])) for i in range(2)]
+    D = [(x2[i] - x3[i]) - (x1[i] - x0[i]) for i in range(2)]
+    area = A[0] * B[1] - A[1] * B[0]
+    ad = A[0] * D[1] - A[1] * D[0]
+    db = D[0] * B[1] - D[1] * B[0]
+    m = _corner_mean(P)
+    with np.errstate(invalid="ignore", divide="ignore"):
+        scale = np.where(area != 0, 1.0 / (12.0 * np.where(area == 0, 1.0, area)), 0.0)
+    return area, [m[i] + (A[i] * ad + B[i] * db) * scale for i in range(2)]
+
+
+# Gauss points of the 2-point rule per direction about the cell centre, p in [-1/2, 1/2]
+_GC = 0.5 / np.sqrt(3.0)
+
+
+def _hex_columns(P: list):
+    """Hexahedra (and pyramids as hexahedra with the top collapsed to the apex).
+
+    The trilinear map about the centre: x = m + A p + B q + C r + D p q + E q r + F p r + G p q r
+    on p, q, r in [-1/2, 1/2]. Where D, E, F, G are negligible (:data:`_AFFINE`) the cell is a
+    parallelepiped: volume det[A, B, C], centroid the corner mean. Elsewhere det J and x det J
+    are integrated with the 2-point Gauss rule per direction, which is exact for them.
+    """
+    x0, x1, x2, x3, x4, x5, x6, x7 = P
+    r3 = range(3)
+    u0, u1, u2, u3 = _sub(x1, x0), _sub(x2, x3), _sub(x5, x4), _sub(x6, x7)  # edges along u
+    A = [0.25 * ((u0[i] + u1[i]) + (u2[i] + u3[i])) for i in r3]
+    B = [0.25 * (((x3[i] - x0[i]) + (x2[i] - x1[i])) + ((x7[i] - x4[i]) + (x6[i] - x5[i]))) for i in r3]
+    C = [0.25 * (((x4[i] - x0[i]) + (x5[i] - x1[i])) + ((x6[i] - x2[i]) + (x7[i] - x3[i]))) for i in r3]
+    d = [u1[i] - u0[i] for i in r3]  # u-edges at v = 1 minus at v = 0
+    f = [u2[i] - u0[i] for i in r3]  # at w = 1 minus at w = 0
+    e = [(x7[i] - x4[i]) - (x3[i] - x0[i]) for i in r3]  # v-edges at w = 1 minus at w = 0
+    G = [(u3[i] - u2[i]) - d[i] for i in r3]
+    volume = _triple(A, B, C)
+    m = _corner_mean(P)
+    nonaffine = sum(np.abs(v[i]) for v in (d, e, f, G) for i in r3)
+    size = sum(np.abs(v[i]) for v in (A, B, C) for i in r3)
+    bent = np.flatnonzero(nonaffine * size * size > _AFFINE * np.abs(volume))
+    if bent.size:
+        Ab, Bb, Cb, Gb = ([v[i][bent] for i in r3] for v in (A, B, C, G))
+        D = [d[i][bent] + 0.5 * Gb[i] for i in r3]
+        E = [e[i][bent] + 0.5 * Gb[i] for i in r3]
+        F = [f[i][bent] + 0.5 * Gb[i] for i in r3]
+        total = np.zeros(bent.size)
+        moment = [np.zeros(bent.size) for _ in r3]
+        for p in (-_GC, _GC):
+            for q in (-_GC, _GC):
+                for r in (-_GC, _GC):
+                    Ju = [Ab[i] + q * D[i] + r * F[i] + (q * r) * Gb[i] for i in r3]
+                    Jv = [Bb[i] + p * D[i] + r * E[i] + (p * r) * Gb[i] for i in r3]
+                    Jw = [Cb[i] + p * F[i] + q * E[i] + (p * q) * Gb[i] for i in r3]
+                    det = _triple(Ju, Jv, Jw)
+                    total += det
+                    for i in r3:
+                        moment[i] += det * (p * Ab[i] + q * Bb[i] + r * Cb[i] + (p * q) * D[i] + (q * r) * E[i]
+                                            + (p * r) * F[i] + (p * q * r) * Gb[i])
+        total *= 0.125
+        volume[bent] = total
+        with np.errstate(invalid="ignore", divide="ignore"):
+            scale = np.where(total != 0, 0.125 / np.where(total == 0, 1.0, total), 0.0)
+        for i in r3:
+            m[i][bent] += moment[i] * scale
+    return volume, m
+
+
+def _wedge_columns(P: list):
+    """Wedges: those whose three vertical edges are equal vectors (to :data:`_AFFINE`) by the
+    triple product, volume det[a, b, c] / 2 at the reference centre, centroid the corner mean;
+    the others by the Gauss rule of :func:`_block_geometry`."""
+    x0, x1, x2, x3, x4, x5 = P
+    r3 = range(3)
+    a, b = _sub(x1, x0), _sub(x2, x0)
+    c0, c1, c2 = _sub(x3, x0), _sub(x4, x1), _sub(x5, x2)  # vertical edges
+    da = [c1[i] - c0[i] for i in r3]
+    db = [c2[i] - c0[i] for i in r3]
+    # the Jacobian at the reference centroid (1/3, 1/3, 1/2): exact for the affine part
+    Jc = ([a[i] + 0.5 * da[i] for i in r3], [b[i] + 0.5 * db[i] for i in r3],
+          [(c0[i] + c1[i] + c2[i]) / 3.0 for i in r3])
+    # VTK orders a wedge's base with its normal away from the top: the reference map is left-handed
+    volume = -0.5 * _triple(*Jc)
+    m = _corner_mean(P)
+    nonaffine = sum(np.abs(v[i]) for v in (da, db) for i in r3)
+    size = sum(np.abs(v[i]) for v in Jc for i in r3)
+    bent = np.flatnonzero(nonaffine * size * size > _AFFINE * np.abs(volume))
+    if bent.size:
+        # about the corner mean: the Gauss sums then lose no digits to a far origin
+        X = np.stack([np.stack([x[i][bent] - m[i][bent] for i in r3], axis=1) for x in P], axis=1)
+        s, cent = _block_geometry("wedge", X)
+        volume[bent] = s
+        for i in r3:
+            m[i][bent] += cent[:, i]
+    return volume, m
+
+
+def _pyramid_columns(P: list):
+    """Pyramids as hexahedra whose four top corners meet at the apex (see :func:`_block_geometry`)."""
+    return _hex_columns(P[:4] + [P[4]] * 4)
+
+
+_COLUMN_GEOMETRY = {"triangle": _simplex_columns, "tetra": _simplex_columns, "quad": _quad_columns,
+                    "hexahedron": _hex_columns, "wedge": _wedge_columns, "pyramid": _pyramid_columns}

@@ -380,81 +380,99 @@ def _few_simplex_cells(mesh: Mesh) -> list:
     def compute():
         from ._simplices import _flat_cells
 
+        kinds = [block.cell_type for block in mesh.blocks]
+        if not any(kind in ("hexahedron", "wedge") for kind in kinds):
+            return [None] * len(kinds)
         flat = _flat_cells(mesh)
-        face_ids = _quad_face_ids(mesh)
-        n_pts = np.int64(max(mesh.n_points, 1))
-        occ_face, occ_cell, occ_key = [], [], []
         candidate = np.zeros(mesh.n_cells, dtype=bool)
-        for b, (block, start) in enumerate(zip(mesh.blocks, mesh.block_offsets[:-1])):
-            if face_ids[b] is None:
-                continue
-            cells = np.arange(start, start + len(block))
-            conn = block.connectivity
-            if block.cell_type in ("hexahedron", "wedge"):
-                candidate[cells] = flat[b]
-                diagonals = _table_diagonals(block.cell_type)
-            else:
-                diagonals = [(0, 2)]  # a pyramid base: never a candidate, the key is unused
-            for j, (i, k) in enumerate(diagonals):
-                if block.cell_type == "wedge":  # the diagonal through the face's lowest point id
-                    corners = conn[:, list(_WEDGE_QUADS[j])].astype(np.int64)
-                    low = np.argmin(corners, axis=1)
-                    rows = np.arange(corners.shape[0])
-                    a, c = corners[rows, low], corners[rows, (low + 2) % 4]
-                else:
-                    a, c = conn[:, i].astype(np.int64), conn[:, k].astype(np.int64)
-                occ_face.append(face_ids[b][:, j])
-                occ_cell.append(cells)
-                occ_key.append(np.minimum(a, c) * n_pts + np.maximum(a, c))
-        if not occ_face:
-            return [None] * len(mesh.blocks)
-        face = np.concatenate(occ_face)
-        cell = np.concatenate(occ_cell)
-        key = np.concatenate(occ_key)
-        n_faces = int(face.max()) + 1
-        sides = np.bincount(face, minlength=n_faces)
-        cand = candidate[cell]
-        n_cand = np.bincount(face, weights=cand, minlength=n_faces)
-        first = np.full(n_faces, -1, dtype=np.int64)
-        first[face[cand]] = key[cand]
-        mismatch = np.zeros(n_faces, dtype=bool)
-        mismatch[face[cand & (first[face] != key)]] = True
-        good = (sides == 1) | ((n_cand == 2) & ~mismatch)
-        if (cand & ~good[face]).any():
-            # a cell that cannot take the table would force its neighbours off it, and theirs,
-            # layer by layer: all or nothing keeps this one pass
-            candidate[:] = False
-        out = []
-        for b, (block, start) in enumerate(zip(mesh.blocks, mesh.block_offsets[:-1])):
-            out.append(candidate[start:start + len(block)].copy()
-                       if block.cell_type in ("hexahedron", "wedge") else None)
-        return out
+        for b, (kind, start) in enumerate(zip(kinds, mesh.block_offsets[:-1])):
+            if kind in ("hexahedron", "wedge"):
+                candidate[start:start + len(mesh.blocks[b])] = flat[b]
+        if candidate.any():
+            candidate &= _diagonals_agree(mesh, candidate)
+        return [candidate[start:start + len(block)].copy() if block.cell_type in ("hexahedron", "wedge") else None
+                for block, start in zip(mesh.blocks, mesh.block_offsets[:-1])]
 
     return mesh.memo("few_simplex_cells", compute)
+
+
+def _diagonals_agree(mesh: Mesh, candidate: np.ndarray) -> bool:
+    """True when every quad face of a ``candidate`` cell is a boundary face or is shared by two
+    candidates that cut it along the same diagonal (:func:`_few_simplex_cells`)."""
+    face_ids = _quad_face_ids(mesh)
+    n_faces = 1 + max(int(ids.max()) for ids in face_ids if ids is not None and ids.size)
+    sides = np.zeros(n_faces, dtype=np.int64)  # cells around each quad face
+    every = True  # every cell with a quad face is a candidate
+    for ids, block, start in zip(face_ids, mesh.blocks, mesh.block_offsets[:-1]):
+        if ids is not None:
+            sides += np.bincount(ids.ravel(), minlength=n_faces)
+            every = every and bool(candidate[start:start + len(block)].all())
+    n_cand = sides if every else np.zeros(n_faces, dtype=np.int64)
+    first = np.full(n_faces, -1, dtype=np.int64)
+    occurrences = []  # (face ids, diagonal keys) of the quad faces of candidate cells
+    n_pts = np.int64(max(mesh.n_points, 1))
+    for b, (block, start) in enumerate(zip(mesh.blocks, mesh.block_offsets[:-1])):
+        if block.cell_type not in ("hexahedron", "wedge"):
+            continue
+        chosen = candidate[start:start + len(block)]
+        if not chosen.any():
+            continue
+        conn, ids = block.connectivity, face_ids[b]
+        if not chosen.all():
+            conn, ids = conn[chosen], ids[chosen]
+        diagonals = _table_diagonals(block.cell_type)
+        if block.cell_type == "hexahedron":  # the table's diagonals, in chunks (rows stay in cache)
+            keys = np.empty((len(diagonals), conn.shape[0]), dtype=np.int64)
+            for lo in range(0, conn.shape[0], 1 << 15):
+                part = conn[lo:lo + (1 << 15)].astype(np.int64, copy=False)
+                for j, (i, k) in enumerate(diagonals):
+                    key = keys[j, lo:lo + (1 << 15)]
+                    np.minimum(part[:, i], part[:, k], out=key)
+                    key *= n_pts
+                    key += np.maximum(part[:, i], part[:, k])
+        for j, (i, k) in enumerate(diagonals):
+            if block.cell_type == "wedge":  # the diagonal through the face's lowest point id
+                corners = conn[:, list(_WEDGE_QUADS[j])].astype(np.int64)
+                low = np.argmin(corners, axis=1)
+                rows = np.arange(corners.shape[0])
+                a, c = corners[rows, low], corners[rows, (low + 2) % 4]
+                key = np.minimum(a, c) * n_pts + np.maximum(a, c)
+            else:
+                key = keys[j]
+            face = np.ascontiguousarray(ids[:, j])
+            if not every:
+                n_cand += np.bincount(face, minlength=n_faces)
+            first[face] = key
+            occurrences.append((face, key))
+    mismatch = np.zeros(n_faces, dtype=bool)
+    for face, key in occurrences:
+        mismatch[face[first[face] != key]] = True
+    good = (sides == 1) | ((n_cand == 2) & ~mismatch)
+    # a cell that cannot take the table would force its neighbours off it, and theirs,
+    # layer by layer: all or nothing keeps this one pass
+    return bool(np.all(good[n_cand > 0]))
 
 
 def _quad_face_ids(mesh: Mesh) -> list:
     """Per block, the mesh face number of each quad face the split cones (cached per mesh).
 
     Hexahedra: the six faces of ``_HEX_FACES``; wedges: the three of ``_WEDGE_QUADS``;
-    pyramids: the base; other types: None. Faces shared by two cells get one number.
+    pyramids: the base; other types: None. Faces shared by two cells get one number
+    (:meth:`Mesh.face_numbers`; int32 where it fits).
     """
+    quads = {"hexahedron": slice(0, 6), "wedge": slice(2, 5), "pyramid": slice(0, 1)}
 
     def compute():
-        faces, owners, order, starts = mesh._faces
-        group = np.empty(order.size, dtype=np.int64)
-        sizes = np.diff(np.append(starts, order.size))
-        group[order] = np.repeat(np.arange(starts.size), sizes)
-        out, row = [], 0
-        for block in mesh.blocks:
-            n = len(block)
-            local = (len(_MESH_FACES[block.cell_type]) if block.cell_type != "polygon"
-                     else block.connectivity.shape[1])
-            ids = group[row:row + local * n].reshape(local, n).T
-            row += local * n
-            quads = {"hexahedron": slice(0, 6), "wedge": slice(2, 5), "pyramid": slice(0, 1)}
-            out.append(np.ascontiguousarray(ids[:, quads[block.cell_type]])
-                       if block.cell_type in quads else None)
+        if not any(block.cell_type in quads for block in mesh.blocks):
+            return [None] * len(mesh.blocks)
+        out = []
+        for block, ids in zip(mesh.blocks, mesh.face_numbers()):
+            if block.cell_type == "hexahedron":
+                out.append(ids)  # all six faces: the mesh's own array
+            elif block.cell_type in quads:
+                out.append(np.ascontiguousarray(ids[:, quads[block.cell_type]]))
+            else:
+                out.append(None)
         return out
 
     return mesh.memo("quad_face_ids", compute)

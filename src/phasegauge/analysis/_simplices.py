@@ -47,25 +47,47 @@ def _flat_cells(mesh: Mesh) -> list:
 
     def compute():
         out = []
+        columns = None
         for block in mesh.blocks:
-            if block.cell_type in ("hexahedron", "wedge", "pyramid"):
-                out.append(_flat_faces(block.cell_type, mesh.coordinates[block.connectivity]))
-            else:
+            if block.cell_type not in ("hexahedron", "wedge", "pyramid"):
                 out.append(None)
+                continue
+            if columns is None:
+                columns = [np.ascontiguousarray(mesh.coordinates[:, i]) for i in range(3)]
+            conn = block.connectivity
+            flat = np.empty(len(block), dtype=bool)
+            for lo in range(0, len(block), _CHUNK):  # in chunks: the temporaries stay in cache
+                part = conn[lo:lo + _CHUNK]
+                corners = [[x[part[:, j]] for x in columns] for j in range(part.shape[1])]
+                flat[lo:lo + _CHUNK] = _flat_faces(block.cell_type, corners)
+            out.append(flat)
         return out
 
     return mesh.memo("flat_cells", compute)
 
 
-def _flat_faces(cell_type: str, X: np.ndarray) -> np.ndarray:
-    """True for cells (corner coordinates X, (n, k, 3)) whose quad faces are all flat."""
-    flat = np.ones(X.shape[0], dtype=bool)
+_CHUNK = 1 << 15
+
+
+def _flat_faces(cell_type: str, X) -> np.ndarray:
+    """True for cells whose quad faces are all flat.
+
+    ``X``: corner coordinates, an array (n, k, 3), or per corner the list of its three
+    coordinate arrays (n,).
+    """
+    P = [[X[:, j, i] for i in range(3)] for j in range(X.shape[1])] if isinstance(X, np.ndarray) else X
+    flat = np.ones(P[0][0].shape[0], dtype=bool)
     for face in _FACES[cell_type]:
         if len(face) == 4:
-            P = X[:, list(face)]
-            e1, e2, e3 = P[:, 1] - P[:, 0], P[:, 2] - P[:, 0], P[:, 3] - P[:, 0]
-            volume = np.abs(np.einsum("nd,nd->n", e1, np.cross(e2, e3)))
-            size = np.einsum("nd,nd->n", e2, e2) ** 1.5
+            p0, p1, p2, p3 = (P[j] for j in face)
+            e1 = [p1[i] - p0[i] for i in range(3)]
+            e2 = [p2[i] - p0[i] for i in range(3)]
+            e3 = [p3[i] - p0[i] for i in range(3)]
+            # e1 . (e2 x e3), term by term as np.cross and a dot product form it
+            volume = np.abs(e1[0] * (e2[1] * e3[2] - e2[2] * e3[1]) + e1[1] * (e2[2] * e3[0] - e2[0] * e3[2])
+                            + e1[2] * (e2[0] * e3[1] - e2[1] * e3[0]))
+            size = e2[0] * e2[0] + e2[1] * e2[1] + e2[2] * e2[2]
+            size *= np.sqrt(size)  # |e2| cubed (as ** 1.5, without the power function)
             flat &= volume <= _FLAT * size
     return flat
 

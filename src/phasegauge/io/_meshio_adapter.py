@@ -375,21 +375,53 @@ def _checked_mesh(mesh: Mesh, raw, where: str) -> Mesh:
 
 
 def _coincident_points(points: np.ndarray) -> tuple[np.ndarray, int]:
-    """Index of each point among the distinct ones (exactly equal coordinates), and their number."""
-    import pandas as pd
+    """Index of each point among the distinct ones (exactly equal coordinates), and their number.
 
-    p = np.ascontiguousarray(points + 0.0)  # -0.0 -> 0.0
-    keys = pd.util.hash_pandas_object(pd.DataFrame(p), index=False).to_numpy()
-    inverse, uniques = pd.factorize(keys)
-    if uniques.size == p.shape[0]:
-        return np.arange(p.shape[0]), p.shape[0]
-    first = np.full(uniques.size, -1, dtype=np.int64)
-    first[inverse[::-1]] = np.arange(p.shape[0])[::-1]
-    if not np.array_equal(p[first[inverse]], p):  # a hash collision: fall back to sorting
-        _, inverse = np.unique(p, axis=0, return_inverse=True)
+    Distinct points are numbered in order of first appearance. The coordinates' bits are
+    mixed into one 64-bit key and sorted; only points whose key is not unique are compared
+    exactly (a key shared by different points falls back to an exact sort of the rows).
+    """
+    p = np.ascontiguousarray(points, dtype=np.float64) + 0.0  # -0.0 -> 0.0
+    n = p.shape[0]
+    if n < 2:
+        return np.arange(n, dtype=np.int64), n
+    bits = p.view(np.uint64)
+    with np.errstate(over="ignore"):
+        key = np.zeros(n, dtype=np.uint64)
+        for j in range(bits.shape[1]):
+            key ^= bits[:, j] + np.uint64(j + 1)
+            key *= _MIX[j % len(_MIX)]
+            key ^= key >> np.uint64(31)
+    ks = np.sort(key)
+    if not np.any(ks[1:] == ks[:-1]):  # all keys differ, so do all points
+        return np.arange(n, dtype=np.int64), n
+    order = np.argsort(key)
+    ks = key[order]
+    repeated = ks[1:] == ks[:-1]
+    # positions (in key order) of the runs of equal keys
+    in_run = np.zeros(n, dtype=bool)
+    in_run[1:] |= repeated
+    in_run[:-1] |= repeated
+    cand = order[in_run]  # the candidates, grouped by key
+    ck = ks[in_run]
+    new_run = np.concatenate([[True], ck[1:] != ck[:-1]])
+    rows = p[cand]
+    same = np.all(rows[1:] == rows[:-1], axis=1)
+    if np.any(~new_run[1:] & ~same):  # one key for different points: sort the candidates exactly
+        _, inverse = np.unique(rows, axis=0, return_inverse=True)
         inverse = inverse.ravel()
-    # number the distinct points in order of first appearance
-    _, order_first = np.unique(inverse, return_index=True)
-    rank = np.empty(order_first.size, dtype=np.int64)
-    rank[np.argsort(order_first, kind="stable")] = np.arange(order_first.size)
-    return rank[inverse].astype(np.int64), int(order_first.size)
+        group_order = np.argsort(inverse, kind="stable")
+        cand = cand[group_order]
+        ordered = inverse[group_order]
+        new_run = np.concatenate([[True], ordered[1:] != ordered[:-1]])
+    # every point's representative: the first point of its group (others stand for themselves)
+    starts = np.flatnonzero(new_run)
+    first = np.minimum.reduceat(cand, starts)
+    rep = np.arange(n, dtype=np.int64)
+    rep[cand] = np.repeat(first, np.diff(np.append(starts, cand.size)))
+    is_first = rep == np.arange(n)
+    rank = np.cumsum(is_first) - 1
+    return rank[rep].astype(np.int64), int(np.count_nonzero(is_first))
+
+
+_MIX = np.array([0x9E3779B97F4A7C15, 0xC2B2AE3D27D4EB4F, 0x165667B19E3779F9], dtype=np.uint64)

@@ -1,0 +1,356 @@
+"""The mesh's fast paths against its general paths and outside references.
+
+Cell geometry: affine hexahedra and wedges take the triple product, quads a closed form,
+other hexahedra and pyramids Gauss points in the map's coefficients; each is checked
+against the general per-block Gauss quadrature (``_block_geometry``, kept as the reference
+path), against pyvista/VTK's ``compute_cell_sizes`` and against exact formulas. Face
+grouping (packed sorts) is checked against ``numpy.unique``; the coincident-point check
+against ``numpy.unique(axis=0)``.
+"""
+
+import numpy as np
+import pytest
+
+from phasegauge import mesh as mesh_module
+from phasegauge.io import _meshio_adapter
+from phasegauge.mesh import Mesh
+from phasegauge.meshgen import grid_mesh, to_meshio
+
+
+def _general_geometry(m):
+    """Signed measures and centroids by the general Gauss path, block by block (each cell
+    about its corner mean, so that a far origin costs the reference no digits)."""
+    signed, cent = [], []
+    for block in m.blocks:
+        X = m.coordinates[block.connectivity]
+        middle = X.mean(axis=1, keepdims=True)
+        s, c = mesh_module._block_geometry(block.cell_type, X - middle)
+        signed.append(s)
+        cent.append(c + middle[:, 0])
+    return np.concatenate(signed), np.concatenate(cent)
+
+
+def _affine_copy(m, matrix, shift):
+    pts = m.coordinates @ np.asarray(matrix, float).T + np.asarray(shift, float)
+    return Mesh(pts, [(b.cell_type, b.connectivity) for b in m.blocks])
+
+
+_SHEAR = [[1.0, 0.3, 0.1], [0.2, 0.9, -0.4], [0.05, 0.1, 1.3]]
+
+
+def _bend(m, amount, seed=0):
+    """Move every point of ``m`` at random by up to ``amount`` (a fraction of the cell size)."""
+    rng = np.random.default_rng(seed)
+    h = float(np.median(m.cell_sizes))
+    pts = m.points + amount * h * rng.uniform(-1, 1, m.points.shape) * (np.ptp(m.points, axis=0) > 0)
+    return Mesh(pts, [(b.cell_type, b.connectivity) for b in m.blocks])
+
+
+def _assert_same_geometry(m):
+    # the general path (2-point Gauss per direction, exact for these maps) is the reference
+    signed, cent = _general_geometry(m)
+    assert np.allclose(m.signed_measures, signed, rtol=1e-12, atol=0)
+    h = float(np.median(m.cell_sizes))
+    assert np.max(np.abs(m.cell_centroids - cent)) <= 1e-12 * max(h, float(np.abs(cent).max()))
+
+
+# ------------------------------------------------------------------ cell geometry
+@pytest.mark.parametrize("kind", ["hexahedron", "wedge", "pyramid", "tetra", "mixed"])
+@pytest.mark.parametrize("shape", ["grid", "sheared far away", "jittered", "bent", "partly bent"])
+def test_fast_geometry_matches_the_general_path(kind, shape):
+    m = grid_mesh((4, 3, 3), [(0, 1), (0, 0.7), (0, 0.5)], kind=kind, jitter=0.3 if shape == "jittered" else 0.0,
+                  seed=2)
+    if shape == "sheared far away":
+        m = _affine_copy(m, _SHEAR, [1.0e3, -2.0e3, 5.0e2])
+    if shape == "bent":
+        m = _bend(m, 1e-9)  # just past the affine tolerance: the Gauss path, for nearly flat cells
+    if shape == "partly bent":  # affine and bent cells side by side in one chunk
+        moved = (np.arange(m.n_points) % 5 == 0)[:, None]
+        m = Mesh(np.where(moved, _bend(m, 0.2).points, m.points), [(b.cell_type, b.connectivity) for b in m.blocks])
+    _assert_same_geometry(m)
+
+
+@pytest.mark.parametrize("kind", ["quad", "triangle", "mixed", "polygon"])
+@pytest.mark.parametrize("jitter", [0.0, 0.3])
+def test_fast_geometry_matches_the_general_path_2d(kind, jitter):
+    m = grid_mesh((5, 4), [(-1, 2), (3, 4)], kind=kind, jitter=jitter, seed=5)
+    _assert_same_geometry(m)
+    sheared = _affine_copy(m, [[1.0, 0.4], [-0.2, 0.8]], [50.0, -20.0])
+    _assert_same_geometry(sheared)
+
+
+def test_parallelepiped_volumes_are_the_determinant():
+    # exact: an affine map x -> A x scales every volume by |det A| (elementary linear algebra);
+    # the centroid of a parallelepiped is the image of the unit cell's centre
+    m = grid_mesh((3, 2, 2), kind="hexahedron")
+    s = _affine_copy(m, _SHEAR, [10.0, 20.0, -30.0])
+    det = np.linalg.det(np.array(_SHEAR))
+    assert np.allclose(s.cell_measures, abs(det) * m.cell_measures, rtol=1e-13, atol=0)
+    expected = m.cell_centroids @ np.array(_SHEAR).T + [10.0, 20.0, -30.0]
+    assert np.allclose(s.cell_centroids, expected, rtol=0, atol=1e-12)
+
+
+def test_prism_with_parallel_ends_volume_is_base_times_height():
+    # exact: a prism whose top is its base moved by t has volume area(base) * (t . n)
+    base = np.array([[0.0, 0.0, 0.0], [2.0, 0.0, 0.0], [0.5, 1.5, 0.0]])
+    t = np.array([0.3, -0.2, 2.5])
+    w = Mesh(np.vstack([base, base + t]), [("wedge", [[0, 1, 2, 3, 4, 5]])])
+    assert w.cell_measures[0] == pytest.approx(0.5 * 2.0 * 1.5 * 2.5, rel=1e-14)
+    assert w.cell_centroids[0] == pytest.approx(base.mean(axis=0) + t / 2, rel=1e-14)
+    assert w.inverted_cells == 0
+
+
+def test_bilinear_quad_closed_form_is_exact():
+    # a trapezoid: area (a + b) / 2 * h and centroid height h (2b + a) / (3 (a + b)) above
+    # the side a (elementary geometry); here a = 4 at y = 0, b = 2 at y = 3
+    q = Mesh([[0, 0], [4, 0], [3, 3], [1, 3]], [("quad", [[0, 1, 2, 3]])])
+    assert q.cell_measures[0] == pytest.approx(9.0, rel=1e-15)
+    assert q.cell_centroids[0] == pytest.approx([2.0, 3 * (2 * 2 + 4) / (3 * 6)], rel=1e-15)
+
+
+@pytest.mark.parametrize("kind", ["hexahedron", "wedge", "pyramid"])
+def test_fast_geometry_against_pyvista(kind, tmp_path):
+    import pyvista as pv
+
+    m = _affine_copy(grid_mesh((3, 3, 2), kind=kind), _SHEAR, [3.0, 0.0, -1.0])
+    path = tmp_path / "m.vtu"
+    to_meshio(m).write(path)
+    sizes = pv.read(path).compute_cell_sizes(length=False, area=False, volume=True)
+    # pyvista.compute_cell_sizes (VTK); wedge volumes compared in magnitude (REFERENCES.md)
+    assert np.allclose(m.cell_measures, np.abs(np.asarray(sizes["Volume"])), rtol=1e-9, atol=0)
+
+
+def test_measures_share_the_signed_array_only_when_nothing_is_inverted():
+    m = grid_mesh((2, 2, 2))
+    assert m.cell_measures is m.signed_measures
+    flipped = Mesh(m.points, [("hexahedron", m.blocks[0].connectivity[:, [4, 5, 6, 7, 0, 1, 2, 3]])])
+    assert np.all(flipped.signed_measures < 0)
+    assert np.all(flipped.cell_measures > 0) and flipped.cell_measures is not flipped.signed_measures
+
+
+# ------------------------------------------------------------------ face grouping
+def _reference_groups(rows):
+    """Lexicographic groups of equal rows by numpy.unique (the reference library)."""
+    uniq, inverse = np.unique(rows, axis=0, return_inverse=True)
+    return uniq, inverse.ravel()
+
+
+@pytest.mark.parametrize("span", [7, 3_000, 2 ** 30])
+@pytest.mark.parametrize("width", [1, 2, 3, 4])
+def test_group_columns_against_numpy_unique(span, width):
+    rng = np.random.default_rng(span + width)
+    distinct = rng.integers(-5, span, size=(300, width))
+    rows = distinct[rng.integers(0, 300, 2000)]
+    order, starts = mesh_module._group_columns([rows[:, j].copy() for j in range(width)])
+    uniq, inverse = _reference_groups(rows)
+    sorted_rows = rows[order]
+    # lexicographic order, one start per distinct row
+    assert np.array_equal(sorted_rows[starts], uniq)
+    group = np.repeat(np.arange(starts.size), np.diff(np.append(starts, rows.shape[0])))
+    assert np.array_equal(inverse[order], group)
+
+
+def test_group_columns_constant_and_empty():
+    order, starts = mesh_module._group_columns([np.full(5, 3), np.full(5, -1)])
+    assert sorted(order) == list(range(5)) and list(starts) == [0]
+    order, starts = mesh_module._group_columns([np.zeros(0, dtype=np.int64)])
+    assert order.size == 0 and starts.size == 0
+
+
+def _reference_topology(m):
+    """Face pairs and boundary faces from numpy.unique on sorted corner rows."""
+    rows, owners = [], []
+    width = 4 if m.dimension == 3 else 2
+    for block, start in zip(m.blocks, m.block_offsets[:-1]):
+        for face in m._local_faces(block):
+            f = np.full((len(block), width), -1, dtype=np.int64)
+            f[:, width - len(face):] = np.sort(block.connectivity[:, list(face)], axis=1)
+            rows.append(f)
+            owners.append(np.arange(start, start + len(block)))
+    rows, owners = np.concatenate(rows), np.concatenate(owners)
+    uniq, inverse = _reference_groups(rows)
+    counts = np.bincount(inverse)
+    pairs = set()
+    for g in np.flatnonzero(counts == 2):
+        a, b = owners[inverse == g]
+        if a != b:
+            pairs.add((min(a, b), max(a, b)))
+    lone = np.flatnonzero(counts[inverse] == 1)
+    lone = lone[np.argsort(inverse[lone])]
+    return np.array(sorted(pairs)).reshape(-1, 2), rows[lone], owners[lone], uniq, inverse
+
+
+@pytest.mark.parametrize("kind", ["hexahedron", "tetra", "wedge", "pyramid", "mixed", "quad", "triangle",
+                                  "polygon"])
+def test_face_topology_against_numpy_unique(kind):
+    dim = 2 if kind in ("quad", "triangle", "polygon") else 3
+    m = grid_mesh((3, 3, 2)[:dim], kind="mixed" if kind == "mixed" else kind, jitter=0.2)
+    pairs, corners, owner, _, inverse = _reference_topology(m)
+    assert np.array_equal(m.face_pairs, pairs)
+    assert np.array_equal(m.boundary_faces[0], corners)  # lexicographic order of the corners
+    assert np.array_equal(m.boundary_faces[1], owner)
+    numbers = m.face_numbers()
+    row = 0
+    for block, ids in zip(m.blocks, numbers):
+        local = len(m._local_faces(block))
+        expected = inverse[row:row + local * len(block)].reshape(local, len(block)).T
+        row += local * len(block)
+        if block.cell_type in ("hexahedron", "wedge", "pyramid"):
+            assert np.array_equal(ids, expected)  # faces numbered in lexicographic order
+        else:
+            assert ids is None
+
+
+def test_face_topology_with_point_ids_too_wide_for_one_pass():
+    # point ids spread over 600 000 (20 bits each): four corner columns need two packed passes
+    m = grid_mesh((3, 2, 2), kind="hexahedron", jitter=0.1)
+    rng = np.random.default_rng(0)
+    ids = np.sort(rng.choice(600_000, m.n_points, replace=False))
+    points = np.zeros((600_000, 3))
+    points[ids] = m.points
+    big = Mesh(points, [("hexahedron", ids[m.blocks[0].connectivity])])
+    pairs, corners, owner, _, _ = _reference_topology(big)
+    assert np.array_equal(big.face_pairs, pairs)
+    assert np.array_equal(big.boundary_faces[0], corners) and np.array_equal(big.boundary_faces[1], owner)
+    assert np.array_equal(big.face_pairs, m.face_pairs)
+
+
+def _same_partition(a, b):
+    """True when two face numberings name the same faces (a relabelling, one to one)."""
+    pairs = {}
+    return all(pairs.setdefault(x, y) == y for x, y in zip(a.ravel(), b.ravel())) and \
+        len(set(pairs.values())) == len(pairs)
+
+
+def _lexicographic_numbers(m):
+    _, _, _, _, inverse = _reference_topology(m)
+    return inverse.reshape(6, -1).T
+
+
+def test_grid_face_numbers_name_the_same_faces():
+    # a regular grid whose cells list their corners in four different local orders
+    m = grid_mesh((4, 3, 2), [(0, 1), (0, 2), (0, 3)])
+    turns = np.array([[0, 1, 2, 3, 4, 5, 6, 7], [1, 2, 3, 0, 5, 6, 7, 4], [4, 7, 6, 5, 0, 3, 2, 1],
+                      [3, 0, 1, 2, 7, 4, 5, 6]])
+    conn = m.blocks[0].connectivity
+    conn = conn[np.arange(len(conn))[:, None], turns[np.arange(len(conn)) % 4]]
+    g = Mesh(m.points, [("hexahedron", conn)])
+    assert g.regular_grid is not None and g._grid_face_numbers is not None
+    assert _same_partition(g.face_numbers()[0], _lexicographic_numbers(g))
+    assert "_face_topology" not in g.__dict__  # no grouping was needed
+
+
+def test_grid_face_numbers_fall_back_for_a_degenerate_face():
+    m = grid_mesh((2, 2, 2))
+    conn = m.blocks[0].connectivity.copy()
+    first = int(np.argmin(conn[:, 0]))  # the cell at the origin
+    conn[first, 7] = conn[first, 6]  # its top face repeats a corner (still spans one grid step)
+    g = Mesh(m.points, [("hexahedron", conn)])
+    assert g.regular_grid is not None and g._grid_face_numbers is None
+    assert np.array_equal(g.face_numbers()[0], _lexicographic_numbers(g))
+
+
+def test_old_face_layout_still_available():
+    m = grid_mesh((2, 2, 1), kind="mixed")
+    faces, owners, order, starts = m._faces
+    assert faces.shape == (owners.size, 4) and order.size == owners.size
+    grouped = faces[order]
+    assert np.all(np.any(grouped[starts[1:]] != grouped[starts[1:] - 1], axis=1))
+
+
+# ------------------------------------------------------------------ coincident points
+def _reference_coincident(points):
+    """Distinct points numbered by first appearance, from numpy.unique(axis=0)."""
+    p = points + 0.0
+    _, first, inverse = np.unique(p, axis=0, return_index=True, return_inverse=True)
+    rank = np.empty(first.size, dtype=np.int64)
+    rank[np.argsort(first)] = np.arange(first.size)
+    return rank[inverse.ravel()], first.size
+
+
+@pytest.mark.parametrize("seed", range(5))
+def test_coincident_points_against_numpy_unique(seed):
+    rng = np.random.default_rng(seed)
+    base = rng.integers(-2, 3, size=(40, 3)).astype(float) * 0.5
+    points = base[rng.integers(0, 40, 200)]
+    points[rng.random(200) < 0.2] *= -1.0  # -0.0 and 0.0 are one point
+    inverse, n = _meshio_adapter._coincident_points(points)
+    ref_inverse, ref_n = _reference_coincident(points)
+    assert n == ref_n and np.array_equal(inverse, ref_inverse)
+
+
+def test_coincident_points_exact_when_keys_collide(monkeypatch):
+    # every key equal: the exact fallback must still separate different points
+    monkeypatch.setattr(_meshio_adapter, "_MIX", np.zeros(3, dtype=np.uint64))
+    rng = np.random.default_rng(1)
+    points = rng.integers(0, 3, size=(100, 3)).astype(float)
+    inverse, n = _meshio_adapter._coincident_points(points)
+    ref_inverse, ref_n = _reference_coincident(points)
+    assert n == ref_n and np.array_equal(inverse, ref_inverse)
+
+
+def test_coincident_points_all_distinct():
+    points = np.random.default_rng(2).random((1000, 3))
+    inverse, n = _meshio_adapter._coincident_points(points)
+    assert n == 1000 and np.array_equal(inverse, np.arange(1000))
+
+
+# ------------------------------------------------------------------ grid checks
+def test_regular_grid_found_with_shuffled_points_and_cells():
+    m = grid_mesh((4, 3, 2), [(0, 2), (0, 1), (5, 6)])
+    rng = np.random.default_rng(3)
+    perm = rng.permutation(m.n_points)
+    inverse = np.argsort(perm)
+    conn = inverse[m.blocks[0].connectivity][rng.permutation(m.n_cells)]
+    s = Mesh(m.points[perm], [("hexahedron", conn)])
+    g = s.regular_grid
+    assert g is not None and g.cell_shape == (4, 3, 2)
+    # scattering the cell centroids gives the grid's own cell centres
+    arr = g.cells_to_array(s.cell_centroids[:, 0])
+    assert np.allclose(arr[:, 1, 1], (np.arange(4) + 0.5) / 2)
+
+
+def test_regular_grid_refused_for_sheared_or_incomplete_grids():
+    m = grid_mesh((3, 3, 3))
+    assert _affine_copy(m, _SHEAR, [0, 0, 0]).regular_grid is None
+    # one cell left out: the points no longer make a full grid of cells
+    part = Mesh(m.points, [("hexahedron", m.blocks[0].connectivity[1:])])
+    assert part.regular_grid is None
+    # a cell whose corners skip a grid line
+    conn = m.blocks[0].connectivity.copy()
+    conn[0, 6] = conn[-1, 6]
+    assert Mesh(m.points, [("hexahedron", conn)]).regular_grid is None
+
+
+# ------------------------------------------------------------------ flat faces
+def test_flat_faces_columnwise_matches_the_vector_formula():
+    from phasegauge.analysis import _simplices
+
+    m = grid_mesh((4, 4, 3), kind="hexahedron")
+    moved = np.zeros(m.n_points, dtype=bool)
+    moved[::7] = True  # some cells bent by 1e-6 of their size, the others flat
+    bent = _bend(m, 1e-6, seed=4)
+    m = Mesh(np.where(moved[:, None], bent.points, m.points), [("hexahedron", m.blocks[0].connectivity)])
+    X = m.coordinates[m.blocks[0].connectivity]
+    flat = _simplices._flat_cells(m)[0]
+    # the same test written with np.cross and a dot product, face by face
+    expected = np.ones(m.n_cells, dtype=bool)
+    for face in mesh_module._FACES["hexahedron"]:
+        P = X[:, list(face)]
+        e1, e2, e3 = P[:, 1] - P[:, 0], P[:, 2] - P[:, 0], P[:, 3] - P[:, 0]
+        volume = np.abs(np.einsum("nd,nd->n", e1, np.cross(e2, e3)))
+        expected &= volume <= _simplices._FLAT * np.einsum("nd,nd->n", e2, e2) ** 1.5
+    assert np.array_equal(flat, expected)
+    assert np.array_equal(_simplices._flat_faces("hexahedron", X), expected)
+    assert flat.any() and not flat.all()
+
+
+@pytest.mark.parametrize("kind, jitter, expected", [("hexahedron", 0.0, True), ("wedge", 0.0, True),
+                                                    ("hexahedron", 0.2, False), ("mixed", 0.0, False)])
+def test_few_simplex_cells(kind, jitter, expected):
+    from phasegauge.analysis import _contour
+
+    m = grid_mesh((3, 3, 3), kind=kind, jitter=jitter)
+    few = _contour._few_simplex_cells(m)
+    flags = np.concatenate([f for f in few if f is not None])
+    assert bool(flags.all()) is expected and bool(flags.any()) is expected
