@@ -17,6 +17,7 @@ point out of the measured phase, towards lower c.
 
 from __future__ import annotations
 
+import weakref
 from dataclasses import dataclass
 
 import numpy as np
@@ -478,6 +479,34 @@ def _corner_extremes(mesh: Mesh, values: np.ndarray):
     return lo, hi
 
 
+#: corner extremes of the values last contoured on the simplex path, kept for the width
+#: integrals of the same step (one entry; taken by :func:`_recall_extremes`)
+_RECENT: list = [None]
+
+
+def _checksum(values: np.ndarray) -> float:
+    return float(np.add.reduce(values, axis=None))
+
+
+def _remember_extremes(mesh: Mesh, values: np.ndarray, lo: np.ndarray, hi: np.ndarray) -> None:
+    """Keep ``_corner_extremes(mesh, values)`` for a later :func:`_recall_extremes` of the same array."""
+    _RECENT[0] = (weakref.ref(mesh), weakref.ref(values), values.shape, _checksum(values), lo, hi)
+
+
+def _recall_extremes(mesh: Mesh, values: np.ndarray):
+    """(lo, hi) remembered for this very mesh and array of unchanged values, else None; forgets them."""
+    entry, _RECENT[0] = _RECENT[0], None
+    if entry is None:
+        return None
+    mesh_ref, values_ref, shape, checksum, lo, hi = entry
+    if mesh_ref() is not mesh or values_ref() is not values or values.shape != shape:
+        return None
+    now = _checksum(values)
+    if not (now == checksum or (np.isnan(now) and np.isnan(checksum))):
+        return None
+    return lo, hi
+
+
 # --------------------------------------------------------------------------- marching simplices
 
 def _to_3d(mesh: Mesh, coords: np.ndarray) -> np.ndarray:
@@ -544,6 +573,7 @@ def _march_simplices(split: SimplexSplit, level: float, dim: int):
 
 def _find_on_simplices(mesh: Mesh, c: np.ndarray, level: float) -> Contour:
     lo, hi = _corner_extremes(mesh, c)
+    _remember_extremes(mesh, c, lo, hi)
     active = np.isfinite(lo) & np.isfinite(hi) & (hi > level) & (lo <= level)
     if not active.any():
         return _empty(mesh)
