@@ -184,32 +184,101 @@ def _simplex_gradients(columns: list, ids: list, values: list):
     return size / factorial, gnorm
 
 
-def _band_sums(measures: np.ndarray, values: list) -> tuple[float, float]:
-    """Band volume of 0.05 < c < 0.95 and int c (1 - c) over simplices (vertex values by corner).
+def _band_volume(measures: np.ndarray, values: list) -> float:
+    """Volume of 0.05 < c < 0.95 over simplices (vertex values by corner).
 
     Simplices wholly inside the band count their measure, wholly outside
     nothing; only those a band edge may cut are sorted and integrated.
     """
-    k = len(values)
     low, high = values[0].copy(), values[0].copy()
     for v in values[1:]:
         np.minimum(low, v, out=low)
         np.maximum(high, v, out=high)
     inside = (low > _LOW) & (high < _HIGH)
-    cut = ~inside & (high >= _LOW) & (low <= _HIGH)
     band = float(measures[inside].sum())
-    if cut.any():
-        ordered = np.sort(np.stack([v[cut] for v in values], axis=1), axis=1)
-        band += float((measures[cut] * (_fraction_below(ordered, _HIGH, presorted=True)
-                                        - _fraction_below(ordered, _LOW, presorted=True))).sum())
+    cut = np.flatnonzero(~inside & (high >= _LOW) & (low <= _HIGH))
+    if cut.size:
+        ordered = _sorted_columns([v[cut] for v in values])
+        band += float((measures[cut] * (_fraction_of(ordered, _HIGH) - _fraction_of(ordered, _LOW))).sum())
+    return band
+
+
+def _mixed_integral(measures: np.ndarray, values: list) -> float:
+    """int c (1 - c) over simplices: measure x (sum c sum (1 - c) + sum c (1 - c)) / (k (k + 1))."""
+    k = len(values)
     total = values[0] + values[1]
     squares = values[0] * values[0] + values[1] * values[1]
     for v in values[2:]:
         total += v
         squares += v * v
-    # int of c (1 - c): (sum c sum (1 - c) + sum c (1 - c)) / (k (k + 1)) times the measure
-    mixed = float((measures * (total * (k - total) + total - squares)).sum()) / (k * (k + 1))
-    return band, mixed
+    return float((measures * (total * (k - total) + total - squares)).sum()) / (k * (k + 1))
+
+
+def _sorted_columns(values: list) -> list:
+    """The vertex values of each simplex in increasing order (a sorting network on the columns)."""
+    def swap(a, b):
+        return np.minimum(a, b), np.maximum(a, b)
+
+    if len(values) == 3:
+        a, b, c = values
+        a, b = swap(a, b)
+        b, c = swap(b, c)
+        a, b = swap(a, b)
+        return [a, b, c]
+    a, b, c, d = values
+    a, b = swap(a, b)
+    c, d = swap(c, d)
+    a, c = swap(a, c)
+    b, d = swap(b, d)
+    b, c = swap(b, c)
+    return [a, b, c, d]
+
+
+def _fraction_of(ordered: list, t: float) -> np.ndarray:
+    """:func:`_fraction_below` of vertex values sorted by column, each branch on its own rows.
+
+    The same formulas row by row; 0 below the lowest vertex value, 1 from the
+    highest on.
+    """
+    out = (t >= ordered[-1]).astype(np.float64)
+    rows = np.flatnonzero((t > ordered[0]) & (t < ordered[-1]))
+    if rows.size == 0:
+        return out
+    v = [x[rows] for x in ordered]
+    part = np.empty(rows.size)
+    with np.errstate(divide="ignore", invalid="ignore", over="ignore"):
+        if len(v) == 3:
+            v0, v1, v2 = v
+            low = t <= v1
+            a, b, c = v0[low], v1[low], v2[low]
+            part[low] = (t - a) ** 2 / ((b - a) * (c - a))
+            high = ~low
+            a, b, c = v0[high], v1[high], v2[high]
+            part[high] = 1.0 - (c - t) ** 2 / ((c - a) * (c - b))
+        else:
+            v0, v1, v2, v3 = v
+            high = t >= v2
+            low = (t <= v1) & ~high
+            mid = ~(low | high)
+            a, b, c, d = v0[low], v1[low], v2[low], v3[low]
+            part[low] = (t - a) ** 3 / ((b - a) * (c - a) * (d - a))
+            a, b, c, d = v0[high], v1[high], v2[high], v3[high]
+            part[high] = 1.0 - (d - t) ** 3 / ((d - a) * (d - b) * (d - c))
+            if mid.any():
+                a, b, c2, c3 = v0[mid], v1[mid], v2[mid], v3[mid]
+                gap = b - a
+                tiny = gap <= 1e-6 * (c3 - a)
+                # F = -(g(b) - g(a)) / (b - a), a divided difference; its limit -g'(a) on a tie
+                value = -((t - b) ** 3 / ((c2 - b) * (c3 - b)) - (t - a) ** 3 / ((c2 - a) * (c3 - a))) \
+                    / np.where(tiny, 1.0, gap)
+                if tiny.any():
+                    x, p, q = a[tiny], c2[tiny], c3[tiny]
+                    deriv = (-3 * (t - x) ** 2 / ((p - x) * (q - x))
+                             + (t - x) ** 3 * (1 / ((p - x) ** 2 * (q - x)) + 1 / ((p - x) * (q - x) ** 2)))
+                    value[tiny] = -deriv
+                part[mid] = value
+    out[rows] = np.clip(part, 0.0, 1.0)
+    return out
 
 
 def _moment_sums(weights: np.ndarray, d: list) -> tuple[float, float, float]:
@@ -264,9 +333,8 @@ class _SplitBand:
             vertex_values = [values[i] for i in ids]
             measures, gnorm = _simplex_gradients(columns, ids, vertex_values)
             weights.append(measures * gnorm)
-            band, mixed = _band_sums(measures, vertex_values)
-            self.band += band
-            self.mixed += mixed
+            self.band += _band_volume(measures, vertex_values)
+            self.mixed += _mixed_integral(measures, vertex_values)
             varying = weights[-1] > 0
             for i in ids:
                 self.known[i[varying]] = True
@@ -348,12 +416,21 @@ def _grid_tetrahedra(mesh: Mesh):
         for axis, values in zip(grid.mesh_axes, grid.axes):
             if not np.array_equal(mesh.coordinates[:, axis], values[index[list(grid.mesh_axes).index(axis)]]):
                 return None
-        tets = []
+        # each tetrahedron of the table is a path 0 -> a -> b -> 6 along three cell edges, one
+        # per axis: its gradient is the three corner differences over the spacings
+        tets, edges = [], {}
         for local in _SPLIT["hexahedron"]:
-            O = offsets[list(local)]
-            inverse = np.linalg.inv(O[1:] - O[0])
-            tets.append((list(local), np.rint(inverse).astype(int)))
-        return {"steps": steps, "tets": tets}
+            middle = [q for q in local if q not in (0, 6)]
+            for order in (middle, middle[::-1]):
+                path = list(zip([0] + order, order + [6]))
+                if all(sorted(offsets[b] - offsets[a]) == [0, 0, 1] for a, b in path):
+                    break
+            else:  # pragma: no cover - the table is fixed
+                return None
+            for a, b in path:
+                edges[a, b] = int(np.argmax(offsets[b] - offsets[a]))
+            tets.append((list(local), middle, path))
+        return {"steps": steps, "tets": tets, "edges": edges}
 
     return mesh.memo("grid_tetrahedra", compute)
 
@@ -372,49 +449,80 @@ class _GridBand:
         values[grid.point_index] = clipped
         self.values = values
         # per-cell corner extremes, one grid axis at a time
-        V = values.reshape(grid.point_shape)
-        low, high = V, V
+        low = high = values.reshape(grid.point_shape)
         for axis in range(3):
-            a = [slice(None)] * 3
-            b = [slice(None)] * 3
-            a[axis], b[axis] = slice(None, -1), slice(1, None)
-            low = np.minimum(low[tuple(a)], low[tuple(b)])
-            high = np.maximum(high[tuple(a)], high[tuple(b)])
+            head = tuple(slice(None, -1) if a == axis else slice(None) for a in range(3))
+            tail = tuple(slice(1, None) if a == axis else slice(None) for a in range(3))
+            low = np.minimum(low[head], low[tail])
+            high = np.maximum(high[head], high[tail])
         cells = np.flatnonzero((high > _TAIL) & (low < 1.0 - _TAIL))
+        low, high = low.ravel()[cells], high.ravel()[cells]
         nx, ny, nz = grid.cell_shape
         i, j, k = cells // (ny * nz), (cells // nz) % ny, cells % nz
         self.base = cells + i * (ny + nz + 1) + j  # flat index of each cell's lowest point
         del cells
         spacing = [np.diff(axis_values) for axis_values in grid.axes]
-        self.h = [spacing[0][i], spacing[1][j], spacing[2][k]]
+        h = [spacing[0][i], spacing[1][j], spacing[2][k]]
         del i, j, k
         n = self.base.size
         self.count = 6 * n
         self.weights = np.empty((6, n))
+        varying = np.zeros(n, dtype=bool)
         self.known = np.zeros(mesh.n_points, dtype=bool)
         self.band = self.mixed = 0.0
-        for part in _chunks(n, _CHUNK // 2):
-            base = self.base[part]
-            ids = [base + step for step in layout["steps"]]
+        tets, edges = layout["tets"], layout["edges"]
+        for part in _chunks(n, _CHUNK):
+            ids = [self.base[part] + step for step in layout["steps"]]
             corner = [values[p] for p in ids]
-            h = [x[part] for x in self.h]
-            measures = h[0] * h[1] * h[2] / 6.0
-            for t, (local, inverse) in enumerate(layout["tets"]):
-                w = [corner[q] for q in local]
-                dv = [x - w[0] for x in w[1:]]
-                square = np.zeros(base.size)
-                for axis in range(3):
-                    g = sum(int(inverse[axis, e]) * dv[e] for e in range(3) if inverse[axis, e] != 0)
-                    g = g / h[axis]
-                    square += g * g
-                weights = measures * np.sqrt(square)
-                self.weights[t, part] = weights
-                band, mixed = _band_sums(measures, w)
-                self.band += band
-                self.mixed += mixed
-                varying = weights > 0
+            # every tetrahedron's gradient runs along three cell edges: (c[b] - c[a]) / h per axis
+            slope = {}
+            for (a, b), axis in edges.items():
+                g = (corner[b] - corner[a]) / h[axis][part]
+                slope[a, b] = g * g
+            measures = h[0][part] * h[1][part] * h[2][part] / 6.0
+            # int c (1 - c) over the six: measure (5 s - s^2 - q) / 20 each, s and q the sums of
+            # the corner values and their squares; corners 0 and 6 are on every tetrahedron, the
+            # others on two
+            ends = corner[0] + corner[6]
+            linear = 6.0 * ends
+            squares = 6.0 * (corner[0] * corner[0] + corner[6] * corner[6])
+            for q in (1, 2, 3, 4, 5, 7):
+                linear += 2.0 * corner[q]
+                squares += 2.0 * corner[q] * corner[q]
+            mixed = 5.0 * linear - squares
+            for t, (_, (a, b), path) in enumerate(tets):
+                self.weights[t, part] = measures * np.sqrt(slope[path[0]] + slope[path[1]] + slope[path[2]])
+                total = ends + corner[a] + corner[b]
+                mixed -= total * total
+            self.mixed += float((measures * mixed).sum()) / 20.0
+            # band volume: whole cells inside or outside the band by their corner extremes
+            lo, hi = low[part], high[part]
+            inside = (lo > _LOW) & (hi < _HIGH)
+            self.band += 6.0 * float(measures[inside].sum())
+            cut = np.flatnonzero(~inside & (hi >= _LOW) & (lo <= _HIGH))
+            if cut.size:
+                for local, _, _ in tets:
+                    self.band += _band_volume(measures[cut], [corner[q][cut] for q in local])
+            # vertices of the tetrahedra where c varies: every corner of a cell where it varies on
+            # all six (marked below, by cells), else tetrahedron by tetrahedron
+            weights = self.weights[:, part]
+            every = np.all(weights > 0, axis=0)
+            varying[part] = every
+            some = np.flatnonzero(~every)
+            for t, (local, _, _) in enumerate(tets):
+                which = some[weights[t, some] > 0]
                 for q in local:
-                    self.known[ids[q][varying]] = True
+                    self.known[ids[q][which]] = True
+        # corners of the cells marked: their lowest points, spread over the 8 corners
+        lowest = np.zeros(mesh.n_points, dtype=bool)
+        lowest[self.base[varying]] = True
+        spread = lowest.reshape(grid.point_shape)
+        for axis in range(3):
+            head = tuple(slice(None, -1) if a == axis else slice(None) for a in range(3))
+            tail = tuple(slice(1, None) if a == axis else slice(None) for a in range(3))
+            spread = spread.copy()
+            spread[tail] |= spread[head]
+        self.known |= spread.ravel()
         self.total_gradient = float(self.weights.sum())
 
     def distances(self, geometry: _ContourGeometry, level: float, bound: float) -> np.ndarray:
@@ -435,7 +543,7 @@ class _GridBand:
         for part in _chunks(n, _CHUNK // 2):
             base = self.base[part]
             d = [dist[base + step] for step in self.layout["steps"]]
-            for t, (local, _) in enumerate(self.layout["tets"]):
+            for t, (local, _, _) in enumerate(self.layout["tets"]):
                 m += _moment_sums(self.weights[t, part], [d[q] for q in local])
         return tuple(float(x) for x in m)
 
