@@ -465,17 +465,19 @@ def _corner_extremes(mesh: Mesh, values: np.ndarray):
     """Per-cell min and max of the corner values (NaN when any corner is NaN)."""
     lo = np.empty(mesh.n_cells)
     hi = np.empty(mesh.n_cells)
+    size = 1 << 15
     for block, start in zip(mesh.blocks, mesh.block_offsets[:-1]):
         conn = block.connectivity
-        sl = slice(int(start), int(start) + len(block))
-        first = values[conn[:, 0]]
-        low, high = lo[sl], hi[sl]
-        np.copyto(low, first)
-        np.copyto(high, first)
-        for j in range(1, conn.shape[1]):  # column by column: faster than a reduction over axis 1
-            v = values[conn[:, j]]
-            np.minimum(low, v, out=low)
-            np.maximum(high, v, out=high)
+        for first in range(0, len(block), size):
+            # rows in chunks, then column by column: faster than a reduction over axis 1
+            v = values[conn[first:first + size]]
+            rows = slice(int(start) + first, int(start) + first + v.shape[0])
+            low, high = lo[rows], hi[rows]
+            np.minimum(v[:, 0], v[:, 1], out=low)
+            np.maximum(v[:, 0], v[:, 1], out=high)
+            for j in range(2, v.shape[1]):
+                np.minimum(low, v[:, j], out=low)
+                np.maximum(high, v[:, j], out=high)
     return lo, hi
 
 

@@ -138,6 +138,8 @@ def cell_gradient(mesh: Mesh, c_point, *, cells=None) -> np.ndarray:
 _CHUNK = 1 << 15
 #: band edges of ``interface_width``
 _LOW, _HIGH = 0.05, 0.95
+#: cell types that are their own simplex split (integrated straight from the connectivity)
+_DIRECT_TYPES = ("triangle", "tetra")
 
 
 def _chunks(n: int, size: int = _CHUNK):
@@ -237,29 +239,29 @@ def _sorted_columns(values: list) -> list:
 def _fraction_of(ordered: list, t: float) -> np.ndarray:
     """:func:`_fraction_below` of vertex values sorted by column, each branch on its own rows.
 
-    The same formulas row by row; 0 below the lowest vertex value, 1 from the
-    highest on.
+    The same formulas and branch order row by row; 0 below the lowest vertex
+    value, 1 from the highest on.
     """
     out = (t >= ordered[-1]).astype(np.float64)
-    rows = np.flatnonzero((t > ordered[0]) & (t < ordered[-1]))
+    rows = np.flatnonzero((t >= ordered[0]) & (t < ordered[-1]))
     if rows.size == 0:
         return out
     v = [x[rows] for x in ordered]
-    part = np.empty(rows.size)
+    part = np.zeros(rows.size)
     with np.errstate(divide="ignore", invalid="ignore", over="ignore"):
         if len(v) == 3:
             v0, v1, v2 = v
-            low = t <= v1
+            low = (t > v0) & (t <= v1)
             a, b, c = v0[low], v1[low], v2[low]
             part[low] = (t - a) ** 2 / ((b - a) * (c - a))
-            high = ~low
+            high = t > v1
             a, b, c = v0[high], v1[high], v2[high]
             part[high] = 1.0 - (c - t) ** 2 / ((c - a) * (c - b))
         else:
             v0, v1, v2, v3 = v
             high = t >= v2
-            low = (t <= v1) & ~high
-            mid = ~(low | high)
+            low = (t > v0) & (t <= v1) & ~high
+            mid = (t > v1) & ~high
             a, b, c, d = v0[low], v1[low], v2[low], v3[low]
             part[low] = (t - a) ** 3 / ((b - a) * (c - a) * (d - a))
             a, b, c, d = v0[high], v1[high], v2[high], v3[high]
@@ -316,7 +318,7 @@ class _SplitBand:
 
     def __init__(self, mesh: Mesh, clipped: np.ndarray, active: np.ndarray):
         self.mesh = mesh
-        if all(block.cell_type in ("triangle", "tetra") for block in mesh.blocks):
+        if all(block.cell_type in _DIRECT_TYPES for block in mesh.blocks):
             # the cells are their own split: read them block by block, no copy
             self.split = SimplexSplit(mesh.coordinates, clipped, np.zeros((0, mesh.dimension + 1), np.int64),
                                       np.zeros(0, np.int64))
