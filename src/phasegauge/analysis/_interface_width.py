@@ -390,23 +390,21 @@ def _grid_tetrahedra(mesh: Mesh):
     """Layout for the width integrals in grid index space, or None (cached per mesh).
 
     Applies to a 3D regular grid (:attr:`Mesh.regular_grid`) whose hexahedra
-    the simplex split cuts by the 6-tetrahedra table (:func:`_few_simplex_cells`),
-    whose corners follow the VTK order from each cell's lowest grid corner and
-    whose point coordinates equal the grid axes exactly: the tetrahedra are
-    then those of :func:`split_cells`, and each one's gradient is a fixed
-    combination of its corner values over the cell's spacing. Holds no
-    per-cell arrays: the grid's own indices suffice.
+    list their corners in the VTK order from each cell's lowest grid corner and
+    whose point coordinates equal the grid axes exactly. Its quad faces are then
+    flat (exactly) and every cell is a translate of the others in index space,
+    so the 6-tetrahedra table cuts each shared face along the same diagonal from
+    both sides: :func:`split_cells` takes that table for all cells
+    (:func:`_few_simplex_cells`, not needed here), and each tetrahedron's
+    gradient is corner differences over the cell's spacing. Holds no per-cell
+    arrays: the grid's own indices suffice.
     """
 
     def compute():
-        from ._contour import _few_simplex_cells
         from ._simplices import _SPLIT
 
         grid = mesh.regular_grid
         if mesh.dimension != 3 or grid is None or mesh.n_cells == 0:
-            return None
-        few = _few_simplex_cells(mesh)
-        if any(f is None or not f.all() for f in few):
             return None
         shape = grid.point_shape
         offsets = np.array([(0, 0, 0), (1, 0, 0), (1, 1, 0), (0, 1, 0),
