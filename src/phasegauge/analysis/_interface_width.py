@@ -212,14 +212,20 @@ def _band_volume(measures: np.ndarray, values: list) -> float:
     return band
 
 
-def _mixed_integral(measures: np.ndarray, values: list) -> float:
-    """int c (1 - c) over simplices: measure x (sum c sum (1 - c) + sum c (1 - c)) / (k (k + 1))."""
-    k = len(values)
+def _sums(values: list) -> tuple[np.ndarray, np.ndarray]:
+    """Per simplex, the sum of the vertex values (by corner) and the sum of their squares."""
     total = values[0] + values[1]
     squares = values[0] * values[0] + values[1] * values[1]
     for v in values[2:]:
         total += v
         squares += v * v
+    return total, squares
+
+
+def _mixed_integral(measures: np.ndarray, values: list) -> float:
+    """int c (1 - c) over simplices: measure x (sum c sum (1 - c) + sum c (1 - c)) / (k (k + 1))."""
+    k = len(values)
+    total, squares = _sums(values)
     return float((measures * (total * (k - total) + total - squares)).sum()) / (k * (k + 1))
 
 
@@ -297,11 +303,7 @@ def _moment_sums(weights: np.ndarray, d: list) -> tuple[float, float, float]:
     distances by corner (NaN where not known).
     """
     k = len(d)
-    total = d[0] + d[1]
-    squares = d[0] * d[0] + d[1] * d[1]
-    for x in d[2:]:
-        total += x
-        squares += x * x
+    total, squares = _sums(d)
     ok = np.isfinite(total)
     w = weights[ok]
     total = total[ok]
