@@ -613,7 +613,11 @@ def _fraction_below(v: np.ndarray, t: float, *, presorted: bool = False) -> np.n
 def _nearest_plane_distance(points, cent, normal, half, bound):
     from scipy.spatial import cKDTree
 
-    far, nearest = cKDTree(cent).query(points, k=1, distance_upper_bound=bound)
+    # a sliding-midpoint tree (not median-balanced): about 1.5-1.9x faster queries here, since the
+    # centroids lie on a surface; equidistant centroids may resolve to another element than with a
+    # balanced tree, which moved the second moment by 3e-11 relative on a 1M-cell grid
+    tree = cKDTree(cent, balanced_tree=False, compact_nodes=False)
+    far, nearest = tree.query(points, k=1, distance_upper_bound=bound)
     out = np.full(points.shape[0], np.nan)
     near = np.isfinite(far)
     nearest = nearest[near]
