@@ -524,7 +524,10 @@ class Mesh:
         key += high[apart]
         del first, low, high, apart
         key = _unique_ints(key)
-        pairs = np.stack(np.divmod(key, np.int64(self.n_cells)), axis=1)
+        # int32 where cell ids times a small count (faces per cell) still fit: users build
+        # table offsets as cell * width in the pairs' own dtype
+        pairs = np.empty((key.size, 2), dtype=np.int32 if self.n_cells < 2 ** 24 else np.int64)
+        np.divmod(key, np.int64(self.n_cells), out=(pairs[:, 0], pairs[:, 1]), casting="unsafe")
         del key
         # face numbers of the cells that have quad faces (split by the contouring); others None
         numbers = [None] * len(self.blocks)
@@ -752,12 +755,45 @@ class Mesh:
             raise ValueError(f"expected {self.n_points} point values, found {v.shape[0]}")
         flat = v.reshape(self.n_points, -1)
         finite = np.isfinite(flat)
-        a = self.incidence
-        total = a @ np.where(finite, flat, 0.0)
-        count = a @ finite.astype(np.float64)
+        if self._corner_sums_direct:
+            total, count = self._corner_sums(np.where(finite, flat, 0.0), finite)
+        else:
+            a = self.incidence
+            total = a @ np.where(finite, flat, 0.0)
+            count = a @ finite.astype(np.float64)
         with np.errstate(invalid="ignore", divide="ignore"):
             out = np.where(count > 0, total / np.maximum(count, 1), np.nan)
         return out.reshape((self.n_cells,) + v.shape[1:])
+
+    @cached_property
+    def _corner_sums_direct(self) -> bool:
+        """True when every cell lists each corner once in a fixed-size block (no polygons, no
+        degenerate cells): the incidence product is then a sum over connectivity columns."""
+        return not any(b.cell_type == "polygon" for b in self.blocks) and not self.degenerate_cells
+
+    def _corner_sums(self, values: np.ndarray, finite: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+        """``incidence @ values`` and ``incidence @ finite`` by gathers, block by block, in chunks.
+
+        Corners are added in connectivity order from zero, the order of the CSR product
+        (bit-identical results), without building the incidence matrix.
+        """
+        k = values.shape[1]
+        total = np.zeros((self.n_cells, k))
+        count = np.zeros((self.n_cells, k))
+        one = k == 1
+        vals = values[:, 0] if one else values
+        good = finite[:, 0] if one else finite
+        for block, offset in zip(self.blocks, self.block_offsets[:-1]):
+            conn = block.connectivity
+            for start in range(0, len(block), _CHUNK):
+                corners = conn[start:start + _CHUNK].T
+                rows = slice(int(offset) + start, int(offset) + start + corners.shape[1])
+                t = total[rows, 0] if one else total[rows]
+                c = count[rows, 0] if one else count[rows]
+                for col in corners:
+                    t += np.take(vals, col, axis=0)
+                    c += np.take(good, col, axis=0)
+        return total, count
 
     def cell_to_point(self, values: np.ndarray, *, method: str = "linear") -> np.ndarray:
         """Point values reconstructed from the cells around each point.
