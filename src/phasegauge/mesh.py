@@ -293,10 +293,11 @@ class Mesh:
     def signature(self) -> str:
         """Hash of points and connectivity: equal signatures mean the same mesh."""
         h = hashlib.blake2b(digest_size=16)
-        h.update(self.points.tobytes())
+        # the arrays' own buffers (C order, as tobytes() gives them) are hashed without a copy
+        h.update(np.ascontiguousarray(self.points))
         for b in self.blocks + self.boundary_blocks:
             h.update(b.cell_type.encode())
-            h.update(b.connectivity.tobytes())
+            h.update(np.ascontiguousarray(b.connectivity))
         return h.hexdigest()
 
     def same_topology(self, points, blocks) -> bool:

@@ -381,17 +381,19 @@ def _coincident_points(points: np.ndarray) -> tuple[np.ndarray, int]:
     mixed into one 64-bit key and sorted; only points whose key is not unique are compared
     exactly (a key shared by different points falls back to an exact sort of the rows).
     """
-    p = np.ascontiguousarray(points, dtype=np.float64) + 0.0  # -0.0 -> 0.0
-    n = p.shape[0]
+    points = np.asarray(points, dtype=np.float64)
+    n = points.shape[0]
     if n < 2:
         return np.arange(n, dtype=np.int64), n
-    bits = p.view(np.uint64)
     with np.errstate(over="ignore"):
         key = np.zeros(n, dtype=np.uint64)
-        for j in range(bits.shape[1]):
-            key ^= bits[:, j] + np.uint64(j + 1)
+        for j in range(points.shape[1]):  # column by column: one column's copy at a time
+            bits = (points[:, j] + 0.0).view(np.uint64)  # -0.0 -> 0.0
+            bits += np.uint64(j + 1)
+            key ^= bits
             key *= _MIX[j % len(_MIX)]
             key ^= key >> np.uint64(31)
+        del bits
     ks = np.sort(key)
     if not np.any(ks[1:] == ks[:-1]):  # all keys differ, so do all points
         return np.arange(n, dtype=np.int64), n
@@ -405,7 +407,7 @@ def _coincident_points(points: np.ndarray) -> tuple[np.ndarray, int]:
     cand = order[in_run]  # the candidates, grouped by key
     ck = ks[in_run]
     new_run = np.concatenate([[True], ck[1:] != ck[:-1]])
-    rows = p[cand]
+    rows = points[cand] + 0.0
     same = np.all(rows[1:] == rows[:-1], axis=1)
     if np.any(~new_run[1:] & ~same):  # one key for different points: sort the candidates exactly
         _, inverse = np.unique(rows, axis=0, return_inverse=True)
