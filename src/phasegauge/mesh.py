@@ -376,9 +376,7 @@ class Mesh:
         cent = np.empty((self.n_cells, dim))
         for block, start in zip(self.blocks, self.block_offsets[:-1]):
             sl = slice(int(start), int(start) + len(block))
-            s, c = _cell_geometry(block.cell_type, X, block.connectivity)
-            signed[sl] = s
-            cent[sl] = c
+            _cell_geometry(block.cell_type, X, block.connectivity, out=(signed[sl], cent[sl]))
         return signed, cent
 
     @property
@@ -1060,16 +1058,21 @@ def _group_columns(columns: list) -> tuple[np.ndarray, np.ndarray]:
     order, ranks = None, []  # ranks: per digit done, the rank of each row's digit value, in order
     index = _index_dtype(n)
     for digit in digits:
-        key, shift = None, 0
-        for j in digit:  # least significant column first
-            part = (columns[j] if order is None else columns[j][order]).astype(np.int64)
-            if lows[j]:
-                part -= lows[j]
-            if shift:
-                part <<= np.int64(shift)
-            key = part if key is None else np.bitwise_or(key, part, out=key)
+        key, shift = np.empty(n, dtype=np.int64), 0
+        for first, j in enumerate(digit):  # least significant column first
+            for lo in range(0, n, _CHUNK):  # in chunks: no full-length int64 temporaries
+                rows = slice(lo, lo + _CHUNK)
+                part = (columns[j][rows] if order is None else np.take(columns[j], order[rows])).astype(np.int64)
+                if lows[j]:
+                    part -= lows[j]
+                if shift:
+                    part <<= np.int64(shift)
+                if first:
+                    key[rows] |= part
+                else:
+                    key[rows] = part
             shift += widths[j]
-            del part
+        del part
         step, ordered = _sort_order(key, shift)
         del key
         ranks = [r[step] for r in ranks]
@@ -1237,20 +1240,22 @@ def _block_geometry(cell_type: str, X: np.ndarray) -> tuple[np.ndarray, np.ndarr
 _AFFINE = 1e-13
 
 
-def _cell_geometry(cell_type: str, X: np.ndarray, conn: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+def _cell_geometry(cell_type: str, X: np.ndarray, conn: np.ndarray,
+                   out: tuple | None = None) -> tuple[np.ndarray, np.ndarray]:
     """Signed measures and centroids of the cells ``conn`` (n, k) of one type, X (n_points, dim).
 
     The same quantities as :func:`_block_geometry`, computed from the corners' coordinate columns
     in chunks (small temporaries): simplices directly, quads in closed form, hexahedra and
     wedges that are affine by their triple product, other hexahedra and pyramids by Gauss
-    points of the trilinear map written in its coefficients.
+    points of the trilinear map written in its coefficients. ``out``: arrays (n,) and
+    (n, dim) to write into (returned), else new ones.
     """
-    if cell_type == "polygon" or cell_type not in _COLUMN_GEOMETRY:
-        return _block_geometry(cell_type, X[conn])
     n, dim = conn.shape[0], X.shape[1]
+    signed, cent = out if out is not None else (np.empty(n), np.empty((n, dim)))
+    if cell_type == "polygon" or cell_type not in _COLUMN_GEOMETRY:
+        signed[:], cent[:] = _block_geometry(cell_type, X[conn])
+        return signed, cent
     Xt = [np.ascontiguousarray(X[:, i]) for i in range(dim)]
-    signed = np.empty(n)
-    cent = np.empty((n, dim))
     for lo in range(0, n, _CHUNK):
         part = conn[lo:lo + _CHUNK]
         # P[j][i]: coordinate i of corner j, each of shape (chunk,)
