@@ -1,0 +1,71 @@
+"""First-step mesh work: fast paths give the same numbers as the general ones."""
+import hashlib
+
+import numpy as np
+import pytest
+
+from phasegauge import meshgen
+from phasegauge.io._meshio_adapter import _coincident_points
+
+KINDS_2D = ["triangle", "quad", "mixed", "polygon"]
+KINDS_3D = ["tetra", "hexahedron", "wedge", "pyramid", "mixed"]
+
+
+def _mesh(kind, dim):
+    shape = (5, 4) if dim == 2 else (4, 3, 3)
+    return meshgen.grid_mesh(shape, [(0, 1)] * dim, kind, jitter=0.2, seed=3)
+
+
+@pytest.mark.parametrize("kind,dim", [(k, 2) for k in KINDS_2D] + [(k, 3) for k in KINDS_3D])
+@pytest.mark.parametrize("columns", [None, 2])
+def test_point_to_cell_matches_incidence_product(kind, dim, columns):
+    # reference: the corner mean as the sparse product incidence @ values (scipy.sparse),
+    # bit for bit (corners added in connectivity order from zero in both)
+    m = _mesh(kind, dim)
+    rng = np.random.default_rng(1)
+    v = rng.normal(size=(m.n_points,) if columns is None else (m.n_points, columns))
+    v[::5] = np.nan
+    v[1::7] = -0.0
+    flat = v.reshape(m.n_points, -1)
+    finite = np.isfinite(flat)
+    total = m.incidence @ np.where(finite, flat, 0.0)
+    count = m.incidence @ finite.astype(np.float64)
+    with np.errstate(invalid="ignore", divide="ignore"):
+        ref = np.where(count > 0, total / np.maximum(count, 1), np.nan).reshape((m.n_cells,) + v.shape[1:])
+    got = m.point_to_cell(v)
+    assert np.array_equal(got, ref, equal_nan=True)
+    assert np.array_equal(np.signbit(got), np.signbit(ref))
+
+
+def test_point_to_cell_degenerate_cell_counts_repeated_corner_once():
+    # a zero-area quad (corners repeated) takes the general path: the mean of its distinct
+    # corners (analytic: (1 + 2) / 2); the other cell the mean of its four corners
+    from phasegauge.mesh import Mesh
+
+    m = Mesh(np.array([[0, 0], [1, 0], [0, 1], [1, 1]], float),
+             [("quad", np.array([[0, 1, 1, 0], [0, 1, 3, 2]]))])
+    assert m.degenerate_cells == 1
+    out = m.point_to_cell(np.array([1.0, 2.0, 3.0, 6.0]))
+    assert out[0] == pytest.approx(1.5, rel=1e-15)
+    assert out[1] == pytest.approx(3.0, rel=1e-15)
+
+
+@pytest.mark.parametrize("kind,dim", [("tetra", 3), ("mixed", 3), ("polygon", 2)])
+def test_face_pairs_int32_and_signature_unchanged(kind, dim):
+    m = _mesh(kind, dim)
+    assert m.face_pairs.dtype == np.int32
+    # reference: blake2b (hashlib) over the arrays' bytes as tobytes() gives them
+    h = hashlib.blake2b(digest_size=16)
+    h.update(m.points.tobytes())
+    for b in m.blocks + m.boundary_blocks:
+        h.update(b.cell_type.encode())
+        h.update(b.connectivity.tobytes())
+    assert m.signature == h.hexdigest()
+
+
+def test_coincident_points_negative_zero_and_copies():
+    # exact equality of coordinates (-0.0 == 0.0 as IEEE 754 compares them)
+    p = np.array([[0.0, 1, 2], [-0.0, 1, 2], [3, 4, 5], [3, 4, 5], [1, 1, 1]])
+    inverse, n = _coincident_points(p)
+    assert n == 3
+    assert inverse.tolist() == [0, 0, 1, 1, 2]
