@@ -471,8 +471,8 @@ def analyse_step(step, options: MeasureOptions, *, contour_dir: str | None = Non
         table = found.table
         m["droplet_count"] = int(found.count)
         m["under_resolved_droplets"] = int(table["under_resolved"].sum()) if len(table) else 0
-        labelled = np.nonzero(found.labels >= 0)[0]
-        result.label_cells = labelled.astype(np.int64)
+        labelled = np.flatnonzero(found.labels >= 0)
+        result.label_cells = labelled.astype(np.int32 if mesh.n_cells < 2 ** 31 else np.int64)  # half the bytes
         result.label_values = found.labels[labelled].astype(np.int32)
         result.label_weights = np.asarray(found.weights)[labelled]
         result.droplets = table
@@ -829,8 +829,9 @@ def _mesh_change_records(series, done) -> list:
 
 def _known_mesh(signature: str):
     """A mesh this process already built for the steps (its caches are reused), or None."""
-    for opened in _SERIES.values():
-        mesh = getattr(opened, "_mesh", None)
+    from .io._meshio_adapter import _MESH_POOL  # meshes set aside before workers forked
+
+    for mesh in [getattr(opened, "_mesh", None) for opened in _SERIES.values()] + list(_MESH_POOL):
         if mesh is not None and mesh.signature == signature:
             return mesh
     return None
@@ -848,8 +849,11 @@ def _track(series, done, options):
                 warnings.simplefilter("ignore", PhasegaugeWarning)
                 mesh = series.read(r.index).mesh
             meshes = {r.mesh_signature: mesh}
-        labels, weights = r.labels(mesh.n_cells)
-        tracker.add(r.index, r.time, mesh, labels, r.droplets, weights=weights)
+        if r.label_cells is None:  # no droplet cells kept
+            labels, weights = r.labels(mesh.n_cells)
+            tracker.add(r.index, r.time, mesh, labels, r.droplets, weights=weights)
+        else:  # the labelled cells as they came (sorted): no arrays over every cell
+            tracker._add_cells(r.index, r.time, mesh, r.droplets, r.label_cells, r.label_values, r.label_weights)
     return tracker.result()
 
 
