@@ -471,8 +471,8 @@ def analyse_step(step, options: MeasureOptions, *, contour_dir: str | None = Non
         table = found.table
         m["droplet_count"] = int(found.count)
         m["under_resolved_droplets"] = int(table["under_resolved"].sum()) if len(table) else 0
-        labelled = np.nonzero(found.labels >= 0)[0]
-        result.label_cells = labelled.astype(np.int64)
+        labelled = np.flatnonzero(found.labels >= 0)
+        result.label_cells = labelled.astype(np.int32 if mesh.n_cells < 2 ** 31 else np.int64)  # half the bytes
         result.label_values = found.labels[labelled].astype(np.int32)
         result.label_weights = np.asarray(found.weights)[labelled]
         result.droplets = table
@@ -498,21 +498,52 @@ def analyse_step(step, options: MeasureOptions, *, contour_dir: str | None = Non
 
 # ------------------------------------------------------------------ executors
 def _run_local(path, indices, options, workers, cache_dir, contour_dir, keep, progress):
-    from concurrent.futures import ProcessPoolExecutor, as_completed
+    """Steps ``indices`` on ``workers`` processes: this one and ``workers - 1`` forked ones.
+
+    This process already holds the mesh with its caches, so it takes steps
+    itself between handing them out; the forks get two steps each ahead so
+    that none waits, and only their results cross between processes.
+    """
+    from collections import deque
+    from concurrent.futures import FIRST_COMPLETED, ProcessPoolExecutor, wait
     import multiprocessing as mp
 
+    def run_here(i):
+        res = run_step(path, i, options, cache_dir=cache_dir, contour_dir=contour_dir, keep_contour=i in keep)
+        results[i] = res
+        progress.update(reused=res.reused)
+
     results = {}
+    todo = deque(indices)
+    if workers < 2:
+        while todo:
+            run_here(todo.popleft())
+        return [results[i] for i in indices]
     ctx = mp.get_context("fork") if hasattr(os, "fork") else mp.get_context()
-    with ProcessPoolExecutor(max_workers=workers, mp_context=ctx) as pool:
-        futures = {pool.submit(run_step, path, i, options, cache_dir=cache_dir, contour_dir=contour_dir,
-                               keep_contour=i in keep): i for i in indices}
+    forks = workers - 1
+    pending = {}
+
+    def collect(futures):
+        for future in futures:
+            res = future.result()
+            results[pending.pop(future)] = res
+            progress.update(reused=res.reused)
+
+    with ProcessPoolExecutor(max_workers=forks, mp_context=ctx) as pool:
         try:
-            for future in as_completed(futures):
-                res = future.result()
-                results[futures[future]] = res
-                progress.update(reused=res.reused)
+            while todo:
+                while todo and len(pending) < 2 * forks:
+                    i = todo.popleft()
+                    pending[pool.submit(run_step, path, i, options, cache_dir=cache_dir, contour_dir=contour_dir,
+                                        keep_contour=i in keep)] = i
+                collect([f for f in list(pending) if f.done()])
+                if todo:
+                    run_here(todo.popleft())
+            while pending:
+                done, _ = wait(list(pending), return_when=FIRST_COMPLETED)
+                collect(done)
         except BaseException:
-            for f in futures:
+            for f in pending:
                 f.cancel()
             raise
     return [results[i] for i in indices]
@@ -798,8 +829,9 @@ def _mesh_change_records(series, done) -> list:
 
 def _known_mesh(signature: str):
     """A mesh this process already built for the steps (its caches are reused), or None."""
-    for opened in _SERIES.values():
-        mesh = getattr(opened, "_mesh", None)
+    from .io._meshio_adapter import _MESH_POOL  # meshes set aside before workers forked
+
+    for mesh in [getattr(opened, "_mesh", None) for opened in _SERIES.values()] + list(_MESH_POOL):
         if mesh is not None and mesh.signature == signature:
             return mesh
     return None
@@ -817,8 +849,11 @@ def _track(series, done, options):
                 warnings.simplefilter("ignore", PhasegaugeWarning)
                 mesh = series.read(r.index).mesh
             meshes = {r.mesh_signature: mesh}
-        labels, weights = r.labels(mesh.n_cells)
-        tracker.add(r.index, r.time, mesh, labels, r.droplets, weights=weights)
+        if r.label_cells is None:  # no droplet cells kept
+            labels, weights = r.labels(mesh.n_cells)
+            tracker.add(r.index, r.time, mesh, labels, r.droplets, weights=weights)
+        else:  # the labelled cells as they came (sorted): no arrays over every cell
+            tracker._add_cells(r.index, r.time, mesh, r.droplets, r.label_cells, r.label_values, r.label_weights)
     return tracker.result()
 
 

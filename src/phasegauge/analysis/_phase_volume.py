@@ -44,12 +44,12 @@ def boundedness(mesh: Mesh, indicator) -> dict:
         native = c
         nonfinite = int(np.count_nonzero(~np.isfinite(c)))
     native = np.asarray(native, dtype=np.float64)
-    finite = native[np.isfinite(native)]
-    good = np.isfinite(c)
-    excess = np.maximum(0.0, np.maximum(c[good] - 1.0, -c[good]))
+    finite = native if np.isfinite(native).all() else native[np.isfinite(native)]
+    outside = np.flatnonzero((c > 1.0) | (c < 0.0))  # the cells with an excess (NaN compares False)
+    excess = np.maximum(c[outside] - 1.0, -c[outside])
     return {"c_min": float(finite.min()) if finite.size else np.nan,
             "c_max": float(finite.max()) if finite.size else np.nan,
-            "overshoot_volume": float(dot(excess, mesh.cell_measures[good])),
+            "overshoot_volume": float(dot(excess, mesh.cell_measures[outside])),
             "nonfinite_values": nonfinite}
 
 
@@ -93,11 +93,13 @@ def conservation_metrics(mesh: Mesh, indicator, *, densities=None) -> dict:
     c = cell_values(mesh, indicator)
     measures = mesh.cell_measures
     good = np.isfinite(c)
-    phase_volume = float(dot(c[good], measures[good]))
+    every = bool(good.all())  # the usual case: no copies
+    c_good, m_good = (c, measures) if every else (c[good], measures[good])
+    phase_volume = float(dot(c_good, m_good))
     out = {"phase_volume": phase_volume, "domain_volume": float(mesh.total_measure),
-           "nonfinite_volume": float(measures[~good].sum())}
+           "nonfinite_volume": 0.0 if every else float(measures[~good].sum())}
     if rho is not None:
-        other_volume = float(measures[good].sum()) - phase_volume
+        other_volume = float(m_good.sum()) - phase_volume
         out["phase_mass"] = rho[0] * phase_volume
         out["other_mass"] = rho[1] * other_volume
         out["total_mass"] = out["phase_mass"] + out["other_mass"]

@@ -108,7 +108,7 @@ def mixing_metrics(mesh: Mesh, c_cell, *, box=None) -> dict:
     if box is not None:
         weights = weights * box_fractions(mesh, normalize_box(mesh, box))
     good = np.isfinite(c) & (weights > 0)
-    w, v = weights[good], c[good]
+    w, v = (weights, c) if good.all() else (weights[good], c[good])  # the usual case: no copies
     mean, intensity = _intensity(w, v)
     volume = float(w.sum())
     lo, hi = MIXED_RANGE

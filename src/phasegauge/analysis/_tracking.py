@@ -148,6 +148,17 @@ class DropletTracker:
             raise OptionError(f"labels refer to droplet {int(labels.max())} but the table has {n_drop} rows",
                               fix="pass the table made with these labels")
         weights = mesh.cell_measures if weights is None else np.asarray(weights, dtype=np.float64)
+        core = np.flatnonzero(labels >= 0)
+        return self._add_cells(step, time, mesh, table, core, labels[core], weights[core],
+                               velocity_known=velocity_known)
+
+    def _add_cells(self, step, time, mesh: Mesh, table, cells, labels, weights, *, velocity_known=None):
+        """:meth:`add` from the labelled cells only (checked, sorted cell indices; their labels and weights).
+
+        The pipeline keeps a step's labels in this form; it saves building and
+        scanning arrays over every cell.
+        """
+        n_drop = len(table)
         if self._previous is not None and not step > self._previous["step"]:
             raise OptionError(f"steps must come in increasing order: {step} after {self._previous['step']}",
                               fix="add the steps in order")
@@ -161,15 +172,14 @@ class DropletTracker:
         if velocity_known is None:
             velocity_known = bool(n_drop) and bool(np.isfinite(velocity).any())
         velocity = np.nan_to_num(velocity) if velocity_known else np.zeros((n_drop, dim))
-        volume = (table["volume"].to_numpy(dtype=float) if "volume" in table
-                  else np.bincount(labels[labels >= 0], weights=weights[labels >= 0], minlength=n_drop))
+        core_volume = np.bincount(labels, weights=weights, minlength=n_drop)
+        volume = table["volume"].to_numpy(dtype=float) if "volume" in table else core_volume
         diameter = (table["equivalent_diameter"].to_numpy(dtype=float) if "equivalent_diameter" in table
                     else np.full(n_drop, np.nan))
-        core = np.flatnonzero(labels >= 0)
         box = (mesh.bounds[0, plane], mesh.bounds[1, plane])
-        current = {"step": step, "time": float(time), "mesh": mesh, "cells": core,
-                   "labels": labels[core].astype(np.int64), "weights": weights[core],
-                   "core_volume": np.bincount(labels[core], weights=weights[core], minlength=n_drop),
+        current = {"step": step, "time": float(time), "mesh": mesh, "cells": cells,
+                   "labels": labels.astype(np.int64), "weights": weights,
+                   "core_volume": core_volume,
                    "volume": volume, "centroid": centroid, "velocity": velocity,
                    "diameter": diameter, "n": n_drop, "axes": axes, "box": box}
 
