@@ -501,51 +501,76 @@ def _run_local(path, indices, options, workers, cache_dir, contour_dir, keep, pr
     """Steps ``indices`` on ``workers`` processes: this one and ``workers - 1`` forked ones.
 
     This process already holds the mesh with its caches, so it takes steps
-    itself between handing them out; the forks get two steps each ahead so
-    that none waits, and only their results cross between processes.
+    itself; a feeder thread hands each fork its next step the moment the fork
+    returns one (one step per fork at a time, so no fork holds queued steps
+    while this process idles at the end). Only the forks' results cross
+    between processes.
     """
     from collections import deque
     from concurrent.futures import FIRST_COMPLETED, ProcessPoolExecutor, wait
     import multiprocessing as mp
-
-    def run_here(i):
-        res = run_step(path, i, options, cache_dir=cache_dir, contour_dir=contour_dir, keep_contour=i in keep)
-        results[i] = res
-        progress.update(reused=res.reused)
+    import threading
 
     results = {}
     todo = deque(indices)
-    if workers < 2:
-        while todo:
-            run_here(todo.popleft())
-        return [results[i] for i in indices]
-    ctx = mp.get_context("fork") if hasattr(os, "fork") else mp.get_context()
-    forks = workers - 1
-    pending = {}
+    lock = threading.Lock()  # guards the progress bar, shared by this thread and the feeder
 
-    def collect(futures):
-        for future in futures:
-            res = future.result()
-            results[pending.pop(future)] = res
+    def record(i, res):
+        results[i] = res
+        with lock:
             progress.update(reused=res.reused)
 
-    with ProcessPoolExecutor(max_workers=forks, mp_context=ctx) as pool:
+    def take():
         try:
-            while todo:
-                while todo and len(pending) < 2 * forks:
-                    i = todo.popleft()
-                    pending[pool.submit(run_step, path, i, options, cache_dir=cache_dir, contour_dir=contour_dir,
-                                        keep_contour=i in keep)] = i
-                collect([f for f in list(pending) if f.done()])
-                if todo:
-                    run_here(todo.popleft())
+            return todo.popleft()  # atomic: the feeder and this thread draw from one queue
+        except IndexError:
+            return None
+
+    def run_here():
+        while (i := take()) is not None:
+            record(i, run_step(path, i, options, cache_dir=cache_dir, contour_dir=contour_dir,
+                               keep_contour=i in keep))
+
+    if workers < 2:
+        run_here()
+        return [results[i] for i in indices]
+    ctx = mp.get_context("fork") if hasattr(os, "fork") else mp.get_context()
+    pending = {}
+    failure = []
+
+    def submit(pool):
+        i = take()
+        if i is not None:
+            pending[pool.submit(run_step, path, i, options, cache_dir=cache_dir, contour_dir=contour_dir,
+                                keep_contour=i in keep)] = i
+
+    def feed(pool):
+        try:
             while pending:
                 done, _ = wait(list(pending), return_when=FIRST_COMPLETED)
-                collect(done)
+                for future in done:
+                    record(pending.pop(future), future.result())
+                    submit(pool)
+        except BaseException as exc:  # handed to the main thread, which raises it
+            failure.append(exc)
+            todo.clear()
+
+    with ProcessPoolExecutor(max_workers=workers - 1, mp_context=ctx) as pool:
+        for _ in range(workers - 1):
+            submit(pool)
+        feeder = threading.Thread(target=feed, args=(pool,), daemon=True)
+        feeder.start()
+        try:
+            run_here()
         except BaseException:
-            for f in pending:
+            todo.clear()
+            for f in list(pending):
                 f.cancel()
             raise
+        finally:
+            feeder.join()
+    if failure:
+        raise failure[0]
     return [results[i] for i in indices]
 
 
