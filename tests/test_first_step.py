@@ -69,3 +69,14 @@ def test_coincident_points_negative_zero_and_copies():
     inverse, n = _coincident_points(p)
     assert n == 3
     assert inverse.tolist() == [0, 0, 1, 1, 2]
+
+
+def test_face_owner_arithmetic_is_64_bit():
+    # regression: with int32 face rows the pair key low * n_cells + high overflowed under the old
+    # (value-based) promotion rules; the owners come back int64 whatever the input width
+    from phasegauge.meshgen import grid_mesh
+
+    mesh = grid_mesh((3, 3, 3), kind="tetra")
+    _, row_starts = mesh._face_rows()
+    rows = np.arange(8, dtype=np.int32)
+    assert mesh._row_owners(rows, row_starts).dtype == np.int64

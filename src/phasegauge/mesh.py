@@ -487,7 +487,7 @@ class Mesh:
     def _row_owners(self, rows: np.ndarray, row_starts: np.ndarray) -> np.ndarray:
         """The cell that owns each face row of :meth:`_face_rows`."""
         if len(self.blocks) == 1:
-            return rows % np.int64(len(self.blocks[0]))
+            return rows.astype(np.int64) % len(self.blocks[0])  # int64 whatever the promotion rules
         block = np.searchsorted(row_starts, rows, side="right") - 1
         n = np.array([len(b) for b in self.blocks], dtype=np.int64)
         return self.block_offsets[block] + (rows - row_starts[block]) % n[block]
@@ -518,8 +518,8 @@ class Mesh:
         low = np.minimum(first, high)
         np.maximum(first, high, out=high)
         apart = low != high
-        key = low[apart]
-        key *= np.int64(self.n_cells)
+        key = low[apart].astype(np.int64)  # the product below needs 64 bits
+        key *= self.n_cells
         key += high[apart]
         del first, low, high, apart
         key = _unique_ints(key)
@@ -1091,11 +1091,6 @@ def _group_columns(columns: list) -> tuple[np.ndarray, np.ndarray]:
     for r in ranks:
         new[1:] |= r[1:] != r[:-1]
     return order, np.flatnonzero(new)
-
-
-def _group_rows(rows: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
-    """:func:`_group_columns` of the columns of an (n, w) int array."""
-    return _group_columns([rows[:, j] for j in range(rows.shape[1])])
 
 
 # ---------------------------------------------------------------------------

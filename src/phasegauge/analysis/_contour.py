@@ -23,7 +23,8 @@ from dataclasses import dataclass
 import numpy as np
 
 from ..errors import OptionError
-from ..mesh import _FACES as _MESH_FACES, Mesh, _sort_small_rows
+from ..mesh import Mesh, _sort_small_rows
+from ._sums import dot
 
 __all__ = ["Contour", "find_interface", "split_cells"]
 
@@ -504,8 +505,12 @@ def _corner_extremes(mesh: Mesh, values: np.ndarray):
 _RECENT: list = [None]
 
 
-def _checksum(values: np.ndarray) -> float:
-    return float(np.add.reduce(values, axis=None))
+def _checksum(values: np.ndarray) -> tuple:
+    """The plain sum and a position-weighted sum: an in-place change (a swap, a shift that keeps
+    the total) that leaves both unchanged by accident is not a practical risk."""
+    flat = values.reshape(-1)
+    with np.errstate(invalid="ignore", over="ignore"):
+        return (float(np.add.reduce(flat)), dot(flat, np.arange(1.0, flat.size + 1.0)))
 
 
 def _remember_extremes(mesh: Mesh, values: np.ndarray, lo: np.ndarray, hi: np.ndarray) -> None:
@@ -522,7 +527,7 @@ def _recall_extremes(mesh: Mesh, values: np.ndarray):
     if mesh_ref() is not mesh or values_ref() is not values or values.shape != shape:
         return None
     now = _checksum(values)
-    if not (now == checksum or (np.isnan(now) and np.isnan(checksum))):
+    if not all(a == b or (np.isnan(a) and np.isnan(b)) for a, b in zip(now, checksum)):
         return None
     return lo, hi
 

@@ -26,7 +26,7 @@ import pandas as pd
 
 from ..errors import OptionError
 from ..indicator import Indicator
-from ..mesh import Mesh
+from ..mesh import Mesh, _index_dtype
 from ._simplices import _quad_faces, cell_extent, centre_states, node_states, split_cell_nodes
 from ._sums import dot
 
@@ -114,10 +114,6 @@ def default_positions(mesh: Mesh, global_axis: int, count: int) -> np.ndarray:
 
 #: section operators kept per mesh: the latest ones built (a series uses one, for all its steps)
 _KEEP = 4
-
-
-def _index_dtype(largest: int):
-    return np.int32 if largest < np.iinfo(np.int32).max else np.int64
 
 
 @dataclass(frozen=True)

@@ -197,7 +197,7 @@ def _neighbour_table(mesh: Mesh) -> np.ndarray:
         table = np.take(table.reshape(-1, 2 * dim), grid.cell_index, axis=0)
     else:
         p = mesh.face_pairs  # sorted by first cell
-        a, b = np.ascontiguousarray(p[:, 0]), np.ascontiguousarray(p[:, 1])
+        a, b = p[:, 0].astype(np.intp), p[:, 1].astype(np.intp)  # a * width below must not overflow int32
         deg_a = np.bincount(a, minlength=n)
         deg_b = np.bincount(b, minlength=n)
         width = max(int((deg_a + deg_b).max(initial=0)), 1)
