@@ -377,6 +377,8 @@ class Mesh:
         for block, start in zip(self.blocks, self.block_offsets[:-1]):
             sl = slice(int(start), int(start) + len(block))
             _cell_geometry(block.cell_type, X, block.connectivity, out=(signed[sl], cent[sl]))
+        signed.flags.writeable = False  # shared by every step (and :attr:`cell_measures`): read-only
+        cent.flags.writeable = False
         return signed, cent
 
     @property
