@@ -134,6 +134,16 @@ class RegularGrid:
     def cell_shape(self) -> tuple:
         return tuple(len(a) - 1 for a in self.axes)
 
+    @cached_property
+    def cell_order(self) -> np.ndarray:
+        """The mesh cell at each flat C-order position of the ``cell_shape`` array (the inverse
+        of ``cell_index``, same dtype), computed once."""
+        n = self.cell_index.size
+        order = np.empty(n, dtype=self.cell_index.dtype)
+        order[self.cell_index] = np.arange(n, dtype=self.cell_index.dtype)
+        order.flags.writeable = False
+        return order
+
     @property
     def spacing(self) -> tuple:
         """Mean spacing along each axis."""

@@ -641,13 +641,6 @@ def _drop_degenerate(contour: Contour) -> Contour:
 
 # --------------------------------------------------------------------------- grid fast path
 
-def _grid_cell_lookup(mesh: Mesh) -> np.ndarray:
-    grid = mesh.regular_grid
-    lookup = np.empty(mesh.n_cells, dtype=np.int64)
-    lookup[grid.cell_index] = np.arange(mesh.n_cells)
-    return lookup
-
-
 def _index_to_physical(grid, index_coords: np.ndarray) -> np.ndarray:
     out = np.empty_like(index_coords)
     for d, axis in enumerate(grid.axes):
@@ -660,7 +653,7 @@ def _cells_of(grid, lookup, index_centroids: np.ndarray) -> np.ndarray:
     ijk = np.floor(index_centroids).astype(np.int64)
     for d, n in enumerate(shape):
         np.clip(ijk[:, d], 0, n - 1, out=ijk[:, d])
-    return lookup[np.ravel_multi_index(tuple(ijk.T), shape)]
+    return lookup[np.ravel_multi_index(tuple(ijk.T), shape)].astype(np.int64)
 
 
 def _find_on_grid(mesh: Mesh, c: np.ndarray, level: float) -> Contour:
@@ -670,7 +663,7 @@ def _find_on_grid(mesh: Mesh, c: np.ndarray, level: float) -> Contour:
     array = grid.points_to_array(c)
     if not (np.nanmax(array) > level and np.nanmin(array) < level):
         return _empty(mesh)
-    lookup = _grid_cell_lookup(mesh)
+    lookup = grid.cell_order
     if mesh.dimension == 2:
         # find_contours keeps values above the level on the left when
         # positive_orientation='high'; with index axes (i, j) = (x, y) that is the

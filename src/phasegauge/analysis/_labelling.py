@@ -184,9 +184,7 @@ def _neighbour_table(mesh: Mesh) -> np.ndarray:
     dtype = np.int32 if n < np.iinfo(np.int32).max else np.int64
     grid = mesh.regular_grid
     if grid is not None:
-        order = np.empty(n, dtype=dtype)
-        order[grid.cell_index] = np.arange(n, dtype=dtype)
-        order = order.reshape(grid.cell_shape)
+        order = grid.cell_order.astype(dtype, copy=False).reshape(grid.cell_shape)
         dim = order.ndim
         table = np.full(order.shape + (2 * dim,), -1, dtype=dtype)
         for axis in range(dim):
@@ -359,13 +357,8 @@ def _join_periodic(n_pieces: int, piece: np.ndarray, links):
 
 def _grid_order(mesh: Mesh) -> np.ndarray:
     """Mesh cell at each position of a regular grid's cell array (C order), cached."""
-    store = _cache(mesh)
-    if "grid_order" not in store:
-        grid = mesh.regular_grid
-        order = np.empty(mesh.n_cells, dtype=np.int64)
-        order[grid.cell_index] = np.arange(mesh.n_cells)
-        store["grid_order"] = order.reshape(grid.cell_shape)
-    return store["grid_order"]
+    grid = mesh.regular_grid
+    return grid.cell_order.reshape(grid.cell_shape)
 
 
 def _band_face_pairs(mesh: Mesh, member: np.ndarray, band: np.ndarray) -> np.ndarray:
