@@ -14,10 +14,11 @@ import pytest
 import phasegauge.analysis._interface_width as width_module
 from phasegauge.analysis._contour import _recall_extremes, split_cells
 from phasegauge.analysis._interface_width import (_ContourGeometry, _band_volume, _fraction_below,
-                                                  _fraction_of, _grid_tetrahedra, _sorted_columns,
+                                                  _fraction_of, _grid_tetrahedra,
                                                   _vertex_distances)
 from phasegauge.analysis.interface import (METRIC_KEYS, find_interface, interface_metrics,
                                            interface_profile_table)
+from phasegauge.mesh import _sort_columns
 from phasegauge.mesh import Mesh
 from phasegauge.meshgen import grid_mesh
 
@@ -168,7 +169,7 @@ def test_band_volume_matches_the_simplex_formula(corners):
     stacked = np.stack(values, axis=1)
     expected = np.sum(measures * (_fraction_below(stacked, 0.95) - _fraction_below(stacked, 0.05)))
     assert _band_volume(measures, values) == pytest.approx(expected, rel=RTOL)
-    ordered = _sorted_columns(values)
+    ordered = _sort_columns(values)
     assert np.array_equal(np.stack(ordered, axis=1), np.sort(stacked, axis=1))
     for t in (0.05, 0.3, 0.95):
         assert np.array_equal(_fraction_of(ordered, t), _fraction_below(stacked, t))

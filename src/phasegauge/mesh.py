@@ -1071,7 +1071,7 @@ def _group_columns(columns: list) -> tuple[np.ndarray, np.ndarray]:
     index = _index_dtype(n)
     for digit in digits:
         key, shift = np.empty(n, dtype=np.int64), 0
-        for first, j in enumerate(digit):  # least significant column first
+        for position, j in enumerate(digit):  # least significant column first
             for lo in range(0, n, _CHUNK):  # in chunks: no full-length int64 temporaries
                 rows = slice(lo, lo + _CHUNK)
                 part = (columns[j][rows] if order is None else np.take(columns[j], order[rows])).astype(np.int64)
@@ -1079,7 +1079,7 @@ def _group_columns(columns: list) -> tuple[np.ndarray, np.ndarray]:
                     part -= lows[j]
                 if shift:
                     part <<= np.int64(shift)
-                if first:
+                if position > 0:  # later columns are or-ed into the key the first one set
                     key[rows] |= part
                 else:
                     key[rows] = part

@@ -26,7 +26,7 @@ import numpy as np
 import pandas as pd
 
 from ..errors import OptionError
-from ..mesh import Mesh
+from ..mesh import Mesh, _sort_columns
 from ._contour import Contour, SimplexSplit, _corner_extremes, find_interface, split_cells
 
 __all__ = ["interface_metrics", "interface_profile_table", "cell_gradient", "METRIC_KEYS",
@@ -207,7 +207,7 @@ def _band_volume(measures: np.ndarray, values: list) -> float:
     band = float(measures[inside].sum())
     cut = np.flatnonzero(~inside & (high >= _LOW) & (low <= _HIGH))
     if cut.size:
-        ordered = _sorted_columns([v[cut] for v in values])
+        ordered = _sort_columns([v[cut] for v in values])
         band += float((measures[cut] * (_fraction_of(ordered, _HIGH) - _fraction_of(ordered, _LOW))).sum())
     return band
 
@@ -227,26 +227,6 @@ def _mixed_integral(measures: np.ndarray, values: list) -> float:
     k = len(values)
     total, squares = _sums(values)
     return float((measures * (total * (k - total) + total - squares)).sum()) / (k * (k + 1))
-
-
-def _sorted_columns(values: list) -> list:
-    """The vertex values of each simplex in increasing order (a sorting network on the columns)."""
-    def swap(a, b):
-        return np.minimum(a, b), np.maximum(a, b)
-
-    if len(values) == 3:
-        a, b, c = values
-        a, b = swap(a, b)
-        b, c = swap(b, c)
-        a, b = swap(a, b)
-        return [a, b, c]
-    a, b, c, d = values
-    a, b = swap(a, b)
-    c, d = swap(c, d)
-    a, c = swap(a, c)
-    b, d = swap(b, d)
-    b, c = swap(b, c)
-    return [a, b, c, d]
 
 
 def _fraction_of(ordered: list, t: float) -> np.ndarray:

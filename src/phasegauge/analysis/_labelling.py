@@ -485,11 +485,11 @@ def _finish_far_band(mesh: Mesh, cells: np.ndarray, label: np.ndarray, shared: n
     full_shared[cells] = shared
     source_cell = np.arange(n)
     source_cell[cells] = cells[root]
-    _finish_band_by_distance(mesh, pairs, band, full_shared, source_cell, extra_pairs)
+    _finish_band_by_distance(mesh, pairs, full_shared, source_cell, extra_pairs)
     return full_shared[cells], np.searchsorted(cells, source_cell[cells])
 
 
-def _finish_band_by_distance(mesh, pairs, band, shared, source_cell, extra_pairs):
+def _finish_band_by_distance(mesh, pairs, shared, source_cell, extra_pairs):
     """Give the band cells still unassigned to the nearest assigned cell (multi-source Dijkstra), in place."""
     length = _face_lengths(mesh, pairs)
     if extra_pairs.size:  # across a periodic boundary the centroid distance is meaningless: use h
