@@ -18,8 +18,7 @@ from phasegauge.analysis._interface_width import (_ContourGeometry, _band_volume
                                                   _vertex_distances)
 from phasegauge.analysis.interface import (METRIC_KEYS, find_interface, interface_metrics,
                                            interface_profile_table)
-from phasegauge.mesh import _sort_columns
-from phasegauge.mesh import Mesh
+from phasegauge.mesh import Mesh, _sort_columns
 from phasegauge.meshgen import grid_mesh
 
 RTOL = 1e-12
