@@ -255,18 +255,19 @@ def test_segregation_scale_option(tmp_path):
     assert ((steps["segregation_scale"] > 1 / 24) & (steps["segregation_scale"] < 0.3)).all()
 
 
-def test_forked_workers_reuse_the_parents_mesh(tmp_path):
-    # the first step runs in this process; workers forked after it find its mesh (and its cached
-    # topology) instead of building it again
+def test_forked_workers_reuse_a_mesh_this_process_built(tmp_path):
+    # forks start before the first step and build their own mesh caches; a mesh this process
+    # built in an earlier run is set aside before they fork, so they find it with its caches
     from phasegauge.io._meshio_adapter import _MESH_POOL
 
     from phasegauge.io import Series
 
     listing = _moving_disc_series(str(tmp_path), steps=3)
     _MESH_POOL.clear()
+    measure(listing, "alpha", analyses=("conservation",))  # serial: the mesh stays open here
     measure(listing, "alpha", workers=2, analyses=("conservation",))
     signature = Series(listing).read(0).mesh.signature
     pooled = [m for m in _MESH_POOL if m.signature == signature]
     assert len(pooled) == 1
-    # the pooled mesh carries the measures the first step computed (nothing to rebuild in a fork)
+    # the pooled mesh carries the measures the earlier run computed (nothing to rebuild in a fork)
     assert "cell_measures" in vars(pooled[0])

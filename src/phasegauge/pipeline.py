@@ -497,14 +497,19 @@ def analyse_step(step, options: MeasureOptions, *, contour_dir: str | None = Non
 
 
 # ------------------------------------------------------------------ executors
-def _run_local(path, indices, options, workers, cache_dir, contour_dir, keep, progress):
+def _run_local(path, indices, options, workers, cache_dir, contour_dir, keep, progress, check_first=False):
     """Steps ``indices`` on ``workers`` processes: this one and ``workers - 1`` forked ones.
 
-    This process already holds the mesh with its caches, so it takes steps
-    itself; a feeder thread hands each fork its next step the moment the fork
-    returns one (one step per fork at a time, so no fork holds queued steps
-    while this process idles at the end). Only the forks' results cross
-    between processes.
+    This process takes steps itself, the first of ``indices`` first; a feeder
+    thread hands each fork its next step the moment the fork returns one (one
+    step per fork at a time, so no fork holds queued steps while this process
+    idles at the end). Only the forks' results cross between processes.
+
+    With ``check_first`` the forks start before the first step: each builds
+    the mesh caches for itself while this process builds its own on the first
+    step, instead of idling until it is done (the caches take a few ordinary
+    steps' time). A first step that says the field option is wrong stops the
+    run and is raised.
     """
     from collections import deque
     from concurrent.futures import FIRST_COMPLETED, ProcessPoolExecutor, wait
@@ -526,14 +531,18 @@ def _run_local(path, indices, options, workers, cache_dir, contour_dir, keep, pr
         except IndexError:
             return None
 
-    def run_here():
-        while (i := take()) is not None:
-            record(i, run_step(path, i, options, cache_dir=cache_dir, contour_dir=contour_dir,
-                               keep_contour=i in keep))
+    def run_here(first=None):
+        while (i := first if first is not None else take()) is not None:
+            res = run_step(path, i, options, cache_dir=cache_dir, contour_dir=contour_dir, keep_contour=i in keep)
+            record(i, res)
+            if first is not None and check_first and res.error is not None and _wrong_field_option(res.error):
+                raise res.error
+            first = None
 
     if workers < 2:
         run_here()
         return [results[i] for i in indices]
+    mine = take()  # this process's first step, before any fork takes one
     ctx = mp.get_context("fork") if hasattr(os, "fork") else mp.get_context()
     pending = {}
     failure = []
@@ -561,7 +570,7 @@ def _run_local(path, indices, options, workers, cache_dir, contour_dir, keep, pr
         feeder = threading.Thread(target=feed, args=(pool,), daemon=True)
         feeder.start()
         try:
-            run_here()
+            run_here(mine)
         except BaseException:
             todo.clear()
             for f in list(pending):
@@ -727,20 +736,26 @@ def _measure(series, path, options, out, txn, *, workers, scheduler, overwrite, 
             os.makedirs(contour_dir, exist_ok=True)
     keep = _snapshot_steps(n, snapshots)
     bar = Progress(n, "steps", enabled=progress)
+    if workers > 1 and not scheduler and n > 1:
+        # local forks start at once and build their own mesh caches while this process takes
+        # the first step; a field name that is wrong still stops the run after that step
+        _close_open_series()  # workers open their own files (HDF5 handles do not cross a fork)
+        everything = _run_local(path, list(range(n)), options, min(workers, n), cache_dir, contour_dir, keep, bar,
+                                check_first=True)
+        bar.close()
+        return _finish(series, everything, options, out, started, workers, scheduler, resume, notes)
     # the first step runs here, before any other: a field name that is wrong stops the run at once
     first = run_step(path, 0, options, cache_dir=cache_dir, contour_dir=contour_dir, keep_contour=0 in keep)
     bar.update(reused=first.reused)
     if first.error is not None and _wrong_field_option(first.error):
         raise first.error
     rest = list(range(1, n))
-    if rest and (scheduler or workers > 1):
+    if rest and scheduler:
         _close_open_series()  # workers open their own files (HDF5 handles do not cross a fork)
     if not rest:
         results = []
     elif scheduler:
         results = _run_dask(path, rest, options, scheduler, cache_dir, contour_dir, keep, bar)
-    elif workers > 1:
-        results = _run_local(path, rest, options, min(workers, len(rest)), cache_dir, contour_dir, keep, bar)
     else:
         results = []
         for i in rest:
@@ -748,7 +763,12 @@ def _measure(series, path, options, out, txn, *, workers, scheduler, overwrite, 
             results.append(res)
             bar.update(reused=res.reused)
     bar.close()
-    result = assemble(series, [first] + results, options, notes=notes)
+    return _finish(series, [first] + results, options, out, started, workers, scheduler, resume, notes)
+
+
+def _finish(series, results, options, out, started, workers, scheduler, resume, notes) -> MeasureResult:
+    """Assemble the ordered step results and, with ``out``, write the report."""
+    result = assemble(series, results, options, notes=notes)
     if out is not None:
         from .report import write_measure_report
 
@@ -761,7 +781,7 @@ def _close_open_series() -> None:
     from .io._meshio_adapter import remember_mesh
 
     for s in _SERIES.values():
-        remember_mesh(getattr(s, "_mesh", None))  # forked workers reuse it with its caches
+        remember_mesh(getattr(s, "_mesh", None))  # workers forked later reuse it with its caches
         s.close()
     _SERIES.clear()
 

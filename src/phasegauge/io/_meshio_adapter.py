@@ -287,8 +287,8 @@ def join_cell_data(mesh: Mesh, cell_data: dict, where: str = "") -> dict:
     return out
 
 
-#: meshes a process has built and keeps for later readers: a worker forked after the first step
-#: finds the parent's mesh here, with its cached measures and topology, instead of rebuilding them
+#: meshes a process has built and keeps for later readers: a worker forked for a later run in the
+#: same process finds the mesh here, with its cached measures and topology, instead of rebuilding them
 _MESH_POOL: list = []
 
 
