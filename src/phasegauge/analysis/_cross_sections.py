@@ -215,7 +215,7 @@ def _plane_pieces(mesh: Mesh, axis: int, position: float, lower_end: bool, cells
 def _build_sections(mesh: Mesh, axis: int, positions: np.ndarray, lower_ends: np.ndarray,
                     locations: frozenset) -> _Sections:
     """The section operator of ``positions`` along analysis axis ``axis`` (see :class:`_Sections`)."""
-    lo, hi = cell_extent(mesh, axis)
+    lo, hi = cell_extent(mesh, axis, keep=False)  # the operator itself is kept
     dim = mesh.dimension
     offsets, n_cuts, n_added = [0], 0, 0
     measures, parents, corners, starts, ends, weights, centred = [], [], [], [], [], [], []
