@@ -271,3 +271,14 @@ def test_forked_workers_reuse_a_mesh_this_process_built(tmp_path):
     assert len(pooled) == 1
     # the pooled mesh carries the measures the earlier run computed (nothing to rebuild in a fork)
     assert "cell_measures" in vars(pooled[0])
+
+
+def test_wrong_field_stops_a_parallel_run_after_the_first_step(tmp_path):
+    # the forks start with the first step, but a field name that is wrong still ends the run
+    # with the first step's one-line error, and a new output folder is not left behind
+    from phasegauge.errors import FieldNotFoundError
+
+    listing = _moving_disc_series(str(tmp_path), steps=4)
+    with pytest.raises(FieldNotFoundError, match="field 'nope' not found; fields there: alpha"):
+        measure(listing, "nope", out=tmp_path / "o", workers=2, analyses=("conservation",))
+    assert not (tmp_path / "o").exists()

@@ -497,7 +497,7 @@ def analyse_step(step, options: MeasureOptions, *, contour_dir: str | None = Non
 
 
 # ------------------------------------------------------------------ executors
-def _run_local(path, indices, options, workers, cache_dir, contour_dir, keep, progress, check_first=False):
+def _run_local(path, indices, options, workers, cache_dir, contour_dir, keep, progress):
     """Steps ``indices`` on ``workers`` processes: this one and ``workers - 1`` forked ones.
 
     This process takes steps itself, the first of ``indices`` first; a feeder
@@ -505,11 +505,10 @@ def _run_local(path, indices, options, workers, cache_dir, contour_dir, keep, pr
     step per fork at a time, so no fork holds queued steps while this process
     idles at the end). Only the forks' results cross between processes.
 
-    With ``check_first`` the forks start before the first step: each builds
-    the mesh caches for itself while this process builds its own on the first
-    step, instead of idling until it is done (the caches take a few ordinary
-    steps' time). A first step that says the field option is wrong stops the
-    run and is raised.
+    The forks start before the first step: each builds the mesh caches for
+    itself while this process builds its own on the first step, instead of
+    idling until it is done (the caches take a few ordinary steps' time). A
+    first step that says the field option is wrong stops the run and is raised.
     """
     from collections import deque
     from concurrent.futures import FIRST_COMPLETED, ProcessPoolExecutor, wait
@@ -535,7 +534,7 @@ def _run_local(path, indices, options, workers, cache_dir, contour_dir, keep, pr
         while (i := first if first is not None else take()) is not None:
             res = run_step(path, i, options, cache_dir=cache_dir, contour_dir=contour_dir, keep_contour=i in keep)
             record(i, res)
-            if first is not None and check_first and res.error is not None and _wrong_field_option(res.error):
+            if first is not None and res.error is not None and _wrong_field_option(res.error):
                 raise res.error
             first = None
 
@@ -740,8 +739,7 @@ def _measure(series, path, options, out, txn, *, workers, scheduler, overwrite, 
         # local forks start at once and build their own mesh caches while this process takes
         # the first step; a field name that is wrong still stops the run after that step
         _close_open_series()  # workers open their own files (HDF5 handles do not cross a fork)
-        everything = _run_local(path, list(range(n)), options, min(workers, n), cache_dir, contour_dir, keep, bar,
-                                check_first=True)
+        everything = _run_local(path, list(range(n)), options, min(workers, n), cache_dir, contour_dir, keep, bar)
         bar.close()
         return _finish(series, everything, options, out, started, workers, scheduler, resume, notes)
     # the first step runs here, before any other: a field name that is wrong stops the run at once
