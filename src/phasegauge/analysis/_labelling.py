@@ -171,6 +171,10 @@ def _periodic_pairs(mesh: Mesh, axis: int):
     return store[key]
 
 
+#: face pairs placed in the neighbour table per pass
+_PAIR_CHUNK = 1 << 18
+
+
 def _neighbour_table(mesh: Mesh) -> np.ndarray:
     """Face neighbours of every cell, shape (n_cells, m), -1 padded; cached per mesh.
 
@@ -195,17 +199,31 @@ def _neighbour_table(mesh: Mesh) -> np.ndarray:
         table = np.take(table.reshape(-1, 2 * dim), grid.cell_index, axis=0)
     else:
         p = mesh.face_pairs  # sorted by first cell
-        a, b = p[:, 0].astype(np.intp), p[:, 1].astype(np.intp)  # a * width below must not overflow int32
+        a, b = p[:, 0], p[:, 1]
         deg_a = np.bincount(a, minlength=n)
         deg_b = np.bincount(b, minlength=n)
         width = max(int((deg_a + deg_b).max(initial=0)), 1)
         table = np.full((n, width), -1, dtype=dtype)
         flat = table.reshape(-1)
-        rank = np.arange(a.size)
-        flat[a * width + rank - (np.cumsum(deg_a) - deg_a)[a]] = b  # row a: its b's first
+        # row a holds its b's first, in pair order: pair r goes to slot r - (row a's first pair);
+        # row b then its a's, in pair order: the r-th pair sorted by b goes to slot deg_a[b] +
+        # r - (row b's first pair). In chunks of pairs (intp arithmetic: a * width must not
+        # overflow int32), so the temporaries stay small: the first step's memory peak was here
+        off_a = np.cumsum(deg_a)
+        off_a -= deg_a
+        np.negative(off_a, out=off_a)
+        off_b = np.cumsum(deg_b)
+        off_b -= deg_b
+        np.subtract(deg_a, off_b, out=off_b)
+        del deg_a, deg_b
         by_b = np.argsort(b, kind="stable")
-        b = b[by_b]
-        flat[b * width + deg_a[b] + rank - (np.cumsum(deg_b) - deg_b)[b]] = a[by_b]  # then its a's
+        for lo in range(0, a.size, _PAIR_CHUNK):
+            rank = np.arange(lo, min(lo + _PAIR_CHUNK, a.size))
+            rows = a[lo:lo + _PAIR_CHUNK].astype(np.intp)
+            flat[rows * width + rank + off_a[rows]] = b[lo:lo + _PAIR_CHUNK]
+            order = by_b[lo:lo + _PAIR_CHUNK]
+            rows = b[order].astype(np.intp)
+            flat[rows * width + rank + off_b[rows]] = a[order]
     store["neighbours"] = table
     return table
 
