@@ -212,6 +212,24 @@ def test_fields_elsewhere_extend_the_operator(builds):
     assert mesh.memo("cross_sections", dict)[(0, np.array([0.3, 0.6]).tobytes())].locations == {"point", "cell"}
 
 
+def test_sections_keep_the_operator_not_the_cells_extent():
+    # the cells' extent along the axis is read once to build the operator and then let go (16
+    # bytes a cell); an extent kept before by other work is used, and stays kept
+    from phasegauge.analysis._simplices import cell_extent
+
+    mesh = grid_mesh((6, 5, 4), kind="tetra")
+    c = 0.5 + 0.3 * np.sin(4 * mesh.points[:, 0])
+    cross_sections(mesh, c, count=3)
+    assert ("cell_extent", 0) not in mesh._memo and len(mesh._memo["cross_sections"]) == 1
+    kept = cell_extent(mesh, 1)
+    cross_sections(mesh, c, axis="y", count=3)
+    assert mesh._memo[("cell_extent", 1)] is kept
+    # the extent itself: the lowest and highest corner coordinate along the axis (numpy reference)
+    corners = mesh.coordinates[mesh.blocks[0].connectivity, 1]
+    np.testing.assert_array_equal(kept[0], corners.min(axis=1))
+    np.testing.assert_array_equal(kept[1], corners.max(axis=1))
+
+
 @pytest.mark.parametrize("n", [11, 70000, 70001])
 def test_median_is_numpy_median(n):
     # the fast selection returns exactly numpy.median, ties and sorted inputs included

@@ -268,7 +268,7 @@ class Mesh:
         types = ", ".join(f"{k}: {v}" for k, v in self.cell_type_counts.items())
         return f"Mesh({self.dimension}D, {self.n_points} points, {self.n_cells} cells; {types})"
 
-    def memo(self, key, compute):
+    def memo(self, key, compute, keep: bool = True):
         """Result of ``compute()`` cached on this mesh under ``key`` (mesh-only work of analyses).
 
         Parameters
@@ -277,11 +277,17 @@ class Mesh:
             Names the quantity (and its parameters, e.g. ``("cell_extent", 0)``).
         compute : callable
             Called once, without arguments; its result must depend on the mesh only.
+        keep : bool
+            False: a result kept before is still returned, but a new one is not kept (for
+            inputs of work that is itself cached).
         """
         cache = self.__dict__.setdefault("_memo", {})
-        if key not in cache:
-            cache[key] = compute()
-        return cache[key]
+        if key in cache:
+            return cache[key]
+        result = compute()
+        if keep:
+            cache[key] = result
+        return result
 
     @cached_property
     def cell_type_counts(self) -> dict:

@@ -40,15 +40,8 @@ def cell_extent(mesh: Mesh, axis: int, keep: bool = True) -> tuple[np.ndarray, n
     """
     from ._contour import _corner_extremes
 
-    key = ("cell_extent", int(axis))
-
-    def compute():
-        return _corner_extremes(mesh, np.ascontiguousarray(mesh.coordinates[:, axis]))
-
-    if keep:
-        return mesh.memo(key, compute)
-    kept = mesh.__dict__.get("_memo", {}).get(key)
-    return kept if kept is not None else compute()
+    return mesh.memo(("cell_extent", int(axis)),
+                     lambda: _corner_extremes(mesh, np.ascontiguousarray(mesh.coordinates[:, axis])), keep=keep)
 
 
 def _flat_cells(mesh: Mesh) -> list:
