@@ -230,6 +230,41 @@ def test_sections_keep_the_operator_not_the_cells_extent():
     np.testing.assert_array_equal(kept[1], corners.max(axis=1))
 
 
+@pytest.mark.parametrize("kind,shape,stretch", [("hexahedron", (9, 7, 6), False), ("hexahedron", (8, 6, 5), True),
+                                                 ("quad", (12, 9), False), ("quad", (10, 8), True)])
+def test_layers_of_a_grid_are_cut_once_and_repeated_exactly(monkeypatch, kind, shape, stretch):
+    # on a structured layer every cell meets the plane alike: its pieces are cut in one cell and
+    # repeated; the operator and the tables must be the general path's, bit for bit (planes
+    # inside layers, through grid points, and at both ends)
+    from phasegauge.mesh import Mesh
+
+    mesh = grid_mesh(shape, kind=kind)
+    if stretch:  # unequal spacing along the in-plane axes
+        points = mesh.points.copy()
+        points[:, 1] = points[:, 1] ** 2
+        points[:, 2 if kind == "hexahedron" else 0] = np.sin(points[:, 2 if kind == "hexahedron" else 0] + 1)
+        mesh = Mesh(points, [(b.cell_type, b.connectivity) for b in mesh.blocks])
+    c = 0.5 + 0.4 * np.sin(3 * mesh.points[:, 0] + 2 * mesh.points[:, 1] - mesh.points[:, 2])
+    c_cell = mesh.point_to_cell(c)
+    taken = []
+    layer = _cross_sections._layer_pieces
+    monkeypatch.setattr(_cross_sections, "_layer_pieces", lambda *a: taken.append(layer(*a)) or taken[-1])
+    lo, hi = mesh.bounds[:, 0]
+    positions = [lo, lo + 0.37 * (hi - lo), float(np.unique(mesh.points[:, 0])[2]), lo + 0.81 * (hi - lo), hi]
+    kept = [cross_sections(mesh, values, positions=positions) for values in (c, c_cell)]
+    assert any(t is not None for t in taken)
+    monkeypatch.setattr(_cross_sections, "_layer_pieces", lambda *a: None)
+    general = grid_mesh(shape, kind=kind) if not stretch else Mesh(mesh.points, [(b.cell_type, b.connectivity)
+                                                                                for b in mesh.blocks])
+    for values, table in zip((c, c_cell), kept):
+        pd.testing.assert_frame_equal(table, cross_sections(general, values, positions=positions), check_exact=True)
+    ours = mesh.memo("cross_sections", dict)
+    theirs = general.memo("cross_sections", dict)
+    for key, operator in ours.items():
+        for name in ("measures", "corners", "parent", "start", "end", "weight"):
+            np.testing.assert_array_equal(getattr(operator, name), getattr(theirs[key], name))
+
+
 @pytest.mark.parametrize("n", [11, 70000, 70001])
 def test_median_is_numpy_median(n):
     # the fast selection returns exactly numpy.median, ties and sorted inputs included

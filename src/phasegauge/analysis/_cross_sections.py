@@ -27,7 +27,7 @@ import pandas as pd
 from ..errors import OptionError
 from ..indicator import Indicator
 from ..mesh import Mesh, _index_dtype
-from ._simplices import _quad_faces, cell_extent, centre_states, node_states, split_cell_nodes
+from ._simplices import _flat_cells, _quad_faces, cell_extent, centre_states, node_states, split_cell_nodes
 from ._sums import dot
 
 
@@ -212,6 +212,67 @@ def _plane_pieces(mesh: Mesh, axis: int, position: float, lower_end: bool, cells
     return measures, np.concatenate(parents), start, end, t, centred
 
 
+def _layer_pieces(mesh: Mesh, axis: int, position: float, lower_end: bool, cells: np.ndarray,
+                  first_added: int) -> tuple | None:
+    """:func:`_plane_pieces` for a layer of cells that all meet the plane alike, else None.
+
+    When every crossed cell is of one block, is split without added centres, and has the
+    same offsets ``s`` from the plane at its local corners (a layer of a structured grid),
+    the split, the sort by ``s``, the cut simplices and the weights are the same in every
+    cell: they are taken from the first cell (by :func:`_plane_pieces` itself) and repeated
+    for the others, each with its own corner coordinates. The arrays are the ones
+    :func:`_plane_pieces` returns for all the cells, value for value and in its order (piece
+    of the first cell first, then cell by cell): the same floating-point operations on the
+    same numbers.
+    """
+    if cells.size < 2:
+        return None
+    offsets = mesh.block_offsets
+    b = int(np.searchsorted(offsets, cells[0], side="right")) - 1
+    if cells[-1] >= offsets[b + 1]:
+        return None  # more than one block
+    block = mesh.blocks[b]
+    local = cells - offsets[b]
+    if block.cell_type in ("hexahedron", "wedge", "pyramid") and not _flat_cells(mesh)[b][local].all():
+        return None  # some are split about added centres
+    conn = block.connectivity[local]
+    X = mesh.coordinates
+    along = X[:, axis]
+    s = along[conn] - position
+    if not (s == s[0]).all():
+        return None
+    template = _plane_pieces(mesh, axis, position, lower_end, cells[:1], first_added)
+    measures, parents, start, end, t, centred = template
+    if centred or measures.size == 0:
+        return None
+    row = conn[0]
+    if np.unique(row).size != row.size:
+        return None  # a corner repeated: the first cell's points do not name its corners
+    slot = {int(point): j for j, point in enumerate(row)}
+    j_start = np.vectorize(slot.__getitem__, otypes=[np.intp])(start)  # (k, dim) local corners
+    j_end = np.vectorize(slot.__getitem__, otypes=[np.intp])(end)
+    dim = mesh.dimension
+    others = [a for a in range(dim) if a != axis]
+    # (k pieces, n cells, dim corners): piece-major, as _plane_pieces orders its rows
+    S, E = conn[:, j_start].transpose(1, 0, 2), conn[:, j_end].transpose(1, 0, 2)
+    si, sj = along[S] - position, along[E] - position
+    weight = si / (si - sj)
+    P = []  # per in-plane axis, (k, n, dim): the corners, as _plane_pieces' edges place them
+    for a in others:
+        column = X[:, a]
+        Xi = column[S]
+        P.append(Xi + weight * (column[E] - Xi))
+    if dim == 2:
+        pieces = np.abs(P[0][:, :, 1] - P[0][:, :, 0])
+    else:
+        d1 = [q[:, :, 1] - q[:, :, 0] for q in P]
+        d2 = [q[:, :, 2] - q[:, :, 0] for q in P]
+        pieces = 0.5 * np.abs(d1[0] * d2[1] - d1[1] * d2[0])
+    k, n = S.shape[0], cells.size
+    return (pieces.reshape(-1), np.tile(cells.astype(parents.dtype), k), S.reshape(k * n, dim).astype(start.dtype),
+            E.reshape(k * n, dim).astype(end.dtype), weight.reshape(k * n, dim), [])
+
+
 def _build_sections(mesh: Mesh, axis: int, positions: np.ndarray, lower_ends: np.ndarray,
                     locations: frozenset) -> _Sections:
     """The section operator of ``positions`` along analysis axis ``axis`` (see :class:`_Sections`)."""
@@ -222,8 +283,9 @@ def _build_sections(mesh: Mesh, axis: int, positions: np.ndarray, lower_ends: np
     for position, lower_end in zip(positions, lower_ends):
         crossed = (lo <= position) & (hi > position) if lower_end else (lo < position) & (hi >= position)
         cells = np.nonzero(crossed)[0]
-        m, parent, start, end, t, plane_centred = _plane_pieces(
-            mesh, axis, float(position), bool(lower_end), cells, mesh.n_points + n_added)
+        m, parent, start, end, t, plane_centred = (
+            _layer_pieces(mesh, axis, float(position), bool(lower_end), cells, mesh.n_points + n_added)
+            or _plane_pieces(mesh, axis, float(position), bool(lower_end), cells, mesh.n_points + n_added))
         # each cut edge once: the pieces of a plane share them. Numbered in the order the
         # pieces first use them, so the pieces read their corner values nearly in order
         start, end, t = start.ravel(), end.ravel(), t.ravel()
