@@ -300,20 +300,36 @@ def _build_sections(mesh: Mesh, axis: int, positions: np.ndarray, lower_ends: np
         cut = np.empty(key.size, dtype=np.int64)
         cut[order] = number[np.cumsum(distinct) - 1]
         first = first[by_use]
+        n_added += sum(rows.size * (1 + _quad_faces(mesh.blocks[b].cell_type)) for b, rows in plane_centred)
+        # kept per plane in the narrowest type their values need so far (joined below in the
+        # final types): the planes' parts are what the building holds longest
+        nodes = _index_dtype(mesh.n_points + n_added)
         measures.append(m)
-        parents.append(parent)
-        corners.append(cut.reshape(-1, dim) + n_cuts)
-        starts.append(start[first])
-        ends.append(end[first])
+        parents.append(parent.astype(_index_dtype(mesh.n_cells), copy=False))
+        corners.append((cut.reshape(-1, dim) + n_cuts).astype(_index_dtype(n_cuts + first.size), copy=False))
+        starts.append(start[first].astype(nodes, copy=False))
+        ends.append(end[first].astype(nodes, copy=False))
         weights.append(t[first])
         centred += plane_centred
         offsets.append(offsets[-1] + m.size)
         n_cuts += first.size
-        n_added += sum(rows.size * (1 + _quad_faces(mesh.blocks[b].cell_type)) for b, rows in plane_centred)
     node_type = _index_dtype(mesh.n_points + n_added)
 
-    def joined(arrays, dtype, shape=(0,)):
-        return np.concatenate(arrays).astype(dtype, copy=False) if arrays else np.zeros(shape, dtype=dtype)
+    def joined(arrays, dtype, shape=(0,), transposed=False):
+        """The planes' arrays end to end in ``dtype`` (first axis; with ``transposed``, the last
+        axis of the transposed parts). The list is emptied as its parts are copied, so no more
+        than one plane's part is held twice (the first step's memory peak was here)."""
+        if not arrays:
+            return np.zeros(shape[::-1] if transposed else shape, dtype=dtype)
+        total, rest = sum(a.shape[0] for a in arrays), arrays[0].shape[1:]
+        out = np.empty(rest[::-1] + (total,) if transposed else (total,) + rest, dtype=dtype)
+        at = 0
+        while arrays:
+            part = arrays.pop(0)
+            (out[..., at:at + part.shape[0]] if transposed else out[at:at + part.shape[0]])[...] = (
+                part.T if transposed else part)
+            at += part.shape[0]
+        return out
 
     measures = joined(measures, np.float64)
     offsets = np.asarray(offsets, dtype=np.int64)
@@ -323,7 +339,7 @@ def _build_sections(mesh: Mesh, axis: int, positions: np.ndarray, lower_ends: np
         offsets=offsets,
         areas=np.array([measures[a:b].sum() for a, b in zip(offsets[:-1], offsets[1:])]),
         measures=measures,
-        corners=np.ascontiguousarray(joined(corners, _index_dtype(n_cuts), (0, dim)).T) if points else None,
+        corners=joined(corners, _index_dtype(n_cuts), (0, dim), transposed=True) if points else None,
         parent=joined(parents, _index_dtype(mesh.n_cells)) if "cell" in locations else None,
         start=joined(starts, node_type) if points else None,
         end=joined(ends, node_type) if points else None,
