@@ -217,6 +217,8 @@ def _child(config: str, path: str, steps: int) -> None:
         import phasegauge.analysis.droplets  # noqa: F401
         import phasegauge.analysis.interface  # noqa: F401
         import phasegauge.analysis.mixing  # noqa: F401
+        import phasegauge.analysis.tracking  # noqa: F401  (scipy.optimize: about 6 MB of code)
+        import skimage.measure  # noqa: F401  (marching cubes on regular grids)
     me = psutil.Process()
     base = me.memory_info().rss
     samples = []
