@@ -221,9 +221,9 @@ def _layer_pieces(mesh: Mesh, axis: int, position: float, lower_end: bool, cells
     the split, the sort by ``s``, the cut simplices and the weights are the same in every
     cell: they are taken from the first cell (by :func:`_plane_pieces` itself) and repeated
     for the others, each with its own corner coordinates. The arrays are the ones
-    :func:`_plane_pieces` returns for all the cells, value for value and in its order (piece
-    of the first cell first, then cell by cell): the same floating-point operations on the
-    same numbers.
+    :func:`_plane_pieces` returns for all the cells, value for value and in its order (the
+    first cell's pieces one by one, each over all the cells): the same floating-point
+    operations on the same numbers.
     """
     if cells.size < 2:
         return None
@@ -326,9 +326,12 @@ def _build_sections(mesh: Mesh, axis: int, positions: np.ndarray, lower_ends: np
         at = 0
         while arrays:
             part = arrays.pop(0)
-            (out[..., at:at + part.shape[0]] if transposed else out[at:at + part.shape[0]])[...] = (
-                part.T if transposed else part)
-            at += part.shape[0]
+            rows = slice(at, at + part.shape[0])
+            if transposed:
+                out[..., rows] = part.T
+            else:
+                out[rows] = part
+            at = rows.stop
         return out
 
     measures = joined(measures, np.float64)
