@@ -498,7 +498,7 @@ def analyse_step(step, options: MeasureOptions, *, contour_dir: str | None = Non
 
 # ------------------------------------------------------------------ executors
 def _run_local(path, indices, options, workers, cache_dir, contour_dir, keep, progress):
-    """Steps ``indices`` on ``workers`` processes: this one and ``workers - 1`` forked ones.
+    """Steps ``indices`` on ``workers`` (at least 2) processes: this one and ``workers - 1`` forked ones.
 
     This process takes steps itself, the first of ``indices`` first; a feeder
     thread hands each fork its next step the moment the fork returns one (one
@@ -530,17 +530,11 @@ def _run_local(path, indices, options, workers, cache_dir, contour_dir, keep, pr
         except IndexError:
             return None
 
-    def run_here(first=None):
-        while (i := first if first is not None else take()) is not None:
-            res = run_step(path, i, options, cache_dir=cache_dir, contour_dir=contour_dir, keep_contour=i in keep)
-            record(i, res)
-            if first is not None and res.error is not None and _wrong_field_option(res.error):
-                raise res.error
-            first = None
+    def run_one(i):
+        res = run_step(path, i, options, cache_dir=cache_dir, contour_dir=contour_dir, keep_contour=i in keep)
+        record(i, res)
+        return res
 
-    if workers < 2:
-        run_here()
-        return [results[i] for i in indices]
     mine = take()  # this process's first step, before any fork takes one
     ctx = mp.get_context("fork") if hasattr(os, "fork") else mp.get_context()
     pending = {}
@@ -569,7 +563,11 @@ def _run_local(path, indices, options, workers, cache_dir, contour_dir, keep, pr
         feeder = threading.Thread(target=feed, args=(pool,), daemon=True)
         feeder.start()
         try:
-            run_here(mine)
+            first = run_one(mine)
+            if first.error is not None and _wrong_field_option(first.error):
+                raise first.error
+            while (i := take()) is not None:
+                run_one(i)
         except BaseException:
             todo.clear()
             for f in list(pending):
