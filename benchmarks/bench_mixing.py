@@ -19,7 +19,7 @@ import numpy as np
 import pyvista
 
 from phasegauge.analysis.mixing import cross_sections, mixing_metrics
-from phasegauge.mesh import Mesh
+from phasegauge.model.mesh import Mesh
 from phasegauge.meshgen import grid_mesh, to_meshio
 
 pyvista.OFF_SCREEN = True

@@ -7,8 +7,8 @@ import pytest
 MODULES = ["phasegauge", "phasegauge.io", "phasegauge.report", "phasegauge.samples", "phasegauge.analysis",
            "phasegauge.analysis.interface", "phasegauge.analysis.droplets", "phasegauge.analysis.tracking",
            "phasegauge.analysis.mixing", "phasegauge.analysis.conservation", "phasegauge.analysis.compare",
-           "phasegauge.analysis.references", "phasegauge.errors", "phasegauge.mesh", "phasegauge.indicator",
-           "phasegauge.pipeline", "phasegauge.recipes", "phasegauge.comparison", "phasegauge.meshgen"]
+           "phasegauge.analysis.references", "phasegauge.errors", "phasegauge.model.mesh", "phasegauge.model.indicator",
+           "phasegauge.run.measure", "phasegauge.recipes", "phasegauge.run.compare", "phasegauge.meshgen"]
 
 
 @pytest.mark.parametrize("name", MODULES)

@@ -7,7 +7,7 @@ import pandas as pd
 from click.testing import CliRunner
 
 from phasegauge.cli import main
-from phasegauge.comparison import RunSpec, compare_runs
+from phasegauge.run.compare import RunSpec, compare_runs
 from phasegauge.meshgen import delaunay_mesh, grid_mesh, to_meshio
 
 

@@ -8,7 +8,7 @@ from phasegauge.analysis.compare import (SamplingGrid, common_grid, interface_po
                                          resample_to_grid, shape_comparison,
                                          shape_comparison_on_grid)
 from phasegauge.errors import InputError, OptionError, ResolutionWarning
-from phasegauge.indicator import map_to_indicator
+from phasegauge.model.indicator import map_to_indicator
 from phasegauge.meshgen import delaunay_mesh, grid_mesh, to_meshio
 
 EPS = 0.01  # logistic profile parameter of the test fields: the profile spans about 4 cells

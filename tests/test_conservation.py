@@ -6,14 +6,14 @@ import pytest
 
 from phasegauge.analysis import conservation
 from phasegauge.analysis.conservation import (
-    boundedness,
-    conservation_metrics,
-    drift_columns,
-    open_boundary_flux,
-    volume_drift,
-)
+                                              boundedness,
+                                              conservation_metrics,
+                                              drift_columns,
+                                              open_boundary_flux,
+                                              volume_drift,
+                                              )
 from phasegauge.errors import OptionError
-from phasegauge.indicator import make_indicator
+from phasegauge.model.indicator import make_indicator
 from phasegauge.io import StepFields
 from phasegauge.meshgen import delaunay_mesh, grid_mesh
 

@@ -207,7 +207,7 @@ def test_point_data_in_a_plane_other_than_xy():
     pts = np.zeros((m2.n_points, 3))
     pts[:, 0] = 3.0
     pts[:, 1:] = m2.coordinates
-    from phasegauge.mesh import Mesh
+    from phasegauge.model.mesh import Mesh
 
     m = Mesh(pts, [("triangle", m2.blocks[0].connectivity)])
     contour = find_interface(m, _disc(m2))

@@ -360,7 +360,7 @@ def test_velocity_of_rigid_rotation(components):
 
 def test_mesh_in_xz_plane_reports_y_of_the_plane():
     base = grid_mesh((20, 20))
-    from phasegauge.mesh import Mesh
+    from phasegauge.model.mesh import Mesh
 
     points = np.column_stack([base.points[:, 0], np.full(base.n_points, 0.7), base.points[:, 1]])
     mesh = Mesh(points, [("quad", base.blocks[0].connectivity)])

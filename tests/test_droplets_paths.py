@@ -16,7 +16,7 @@ from scipy.sparse import csgraph
 
 from phasegauge.analysis import _labelling
 from phasegauge.analysis.droplets import TABLE_COLUMNS, label_droplets
-from phasegauge.mesh import Mesh
+from phasegauge.model.mesh import Mesh
 from phasegauge.meshgen import delaunay_mesh, grid_mesh
 
 LEVEL, FLOOR = 0.5, 1e-3

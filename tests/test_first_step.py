@@ -40,7 +40,7 @@ def test_point_to_cell_matches_incidence_product(kind, dim, columns):
 def test_point_to_cell_degenerate_cell_counts_repeated_corner_once():
     # a zero-area quad (corners repeated) takes the general path: the mean of its distinct
     # corners (analytic: (1 + 2) / 2); the other cell the mean of its four corners
-    from phasegauge.mesh import Mesh
+    from phasegauge.model.mesh import Mesh
 
     m = Mesh(np.array([[0, 0], [1, 0], [0, 1], [1, 1]], float),
              [("quad", np.array([[0, 1, 1, 0], [0, 1, 3, 2]]))])

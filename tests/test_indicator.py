@@ -7,7 +7,7 @@ import pytest
 
 from phasegauge.errors import (FieldNotFoundError, FieldShapeError, NonFiniteWarning, OptionError,
                                RangeWarning)
-from phasegauge.indicator import make_indicator, map_to_indicator, parse_range
+from phasegauge.model.indicator import make_indicator, map_to_indicator, parse_range
 from phasegauge.io import StepFields
 from phasegauge.meshgen import grid_mesh
 

@@ -7,15 +7,15 @@ import pandas as pd
 import pytest
 
 from phasegauge.analysis.interface import (
-    METRIC_KEYS,
-    PROFILE_COLUMNS,
-    diffusion_audit,
-    find_interface,
-    interface_metrics,
-    interface_profile_table,
-)
+                                           METRIC_KEYS,
+                                           PROFILE_COLUMNS,
+                                           diffusion_audit,
+                                           find_interface,
+                                           interface_metrics,
+                                           interface_profile_table,
+                                           )
 from phasegauge.errors import OptionError
-from phasegauge.indicator import make_indicator
+from phasegauge.model.indicator import make_indicator
 from phasegauge.io import StepFields
 from phasegauge.meshgen import grid_mesh
 

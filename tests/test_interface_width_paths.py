@@ -18,7 +18,8 @@ from phasegauge.analysis._interface_width import (_ContourGeometry, _band_volume
                                                   _vertex_distances)
 from phasegauge.analysis.interface import (METRIC_KEYS, find_interface, interface_metrics,
                                            interface_profile_table)
-from phasegauge.mesh import Mesh, _sort_columns
+from phasegauge.model._grouping import sort_columns
+from phasegauge.model.mesh import Mesh
 from phasegauge.meshgen import grid_mesh
 
 RTOL = 1e-12
@@ -168,7 +169,7 @@ def test_band_volume_matches_the_simplex_formula(corners):
     stacked = np.stack(values, axis=1)
     expected = np.sum(measures * (_fraction_below(stacked, 0.95) - _fraction_below(stacked, 0.05)))
     assert _band_volume(measures, values) == pytest.approx(expected, rel=RTOL)
-    ordered = _sort_columns(values)
+    ordered = sort_columns(values)
     assert np.array_equal(np.stack(ordered, axis=1), np.sort(stacked, axis=1))
     for t in (0.05, 0.3, 0.95):
         assert np.array_equal(_fraction_of(ordered, t), _fraction_below(stacked, t))

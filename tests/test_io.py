@@ -129,7 +129,7 @@ def test_xdmf_time_series_with_changing_mesh(tmp_path):
     a, b = s.read(0), s.read(1)
     assert a.mesh.n_cells == 8 and b.mesh.n_cells == 18
     assert float(b.fields.point_data["phi"][0]) == 1.0
-    from phasegauge.describe import describe_series
+    from phasegauge.io.describe import describe_series
 
     assert describe_series(tmp_path / "moving.xdmf")["mesh_changes"] is True
 

@@ -4,7 +4,7 @@ import numpy as np
 import pytest
 
 from phasegauge.errors import UnsupportedMeshError
-from phasegauge.mesh import Mesh
+from phasegauge.model.mesh import Mesh
 from phasegauge.meshgen import delaunay_mesh, grid_mesh, to_meshio
 
 KINDS_2D = ["quad", "triangle", "mixed", "polygon"]

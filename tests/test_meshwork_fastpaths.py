@@ -11,9 +11,9 @@ against ``numpy.unique(axis=0)``.
 import numpy as np
 import pytest
 
-from phasegauge import mesh as mesh_module
+from phasegauge.model import _geometry, _grouping, cells
 from phasegauge.io import _meshio_adapter
-from phasegauge.mesh import Mesh
+from phasegauge.model.mesh import Mesh
 from phasegauge.meshgen import grid_mesh, to_meshio
 
 
@@ -24,7 +24,7 @@ def _general_geometry(m):
     for block in m.blocks:
         X = m.coordinates[block.connectivity]
         middle = X.mean(axis=1, keepdims=True)
-        s, c = mesh_module._block_geometry(block.cell_type, X - middle)
+        s, c = _geometry._block_geometry(block.cell_type, X - middle)
         signed.append(s)
         cent.append(c + middle[:, 0])
     return np.concatenate(signed), np.concatenate(cent)
@@ -141,7 +141,7 @@ def test_group_columns_against_numpy_unique(span, width):
     rng = np.random.default_rng(span + width)
     distinct = rng.integers(-5, span, size=(300, width))
     rows = distinct[rng.integers(0, 300, 2000)]
-    order, starts = mesh_module._group_columns([rows[:, j].copy() for j in range(width)])
+    order, starts = _grouping.group_columns([rows[:, j].copy() for j in range(width)])
     uniq, inverse = _reference_groups(rows)
     sorted_rows = rows[order]
     # lexicographic order, one start per distinct row
@@ -151,9 +151,9 @@ def test_group_columns_against_numpy_unique(span, width):
 
 
 def test_group_columns_constant_and_empty():
-    order, starts = mesh_module._group_columns([np.full(5, 3), np.full(5, -1)])
+    order, starts = _grouping.group_columns([np.full(5, 3), np.full(5, -1)])
     assert sorted(order) == list(range(5)) and list(starts) == [0]
-    order, starts = mesh_module._group_columns([np.zeros(0, dtype=np.int64)])
+    order, starts = _grouping.group_columns([np.zeros(0, dtype=np.int64)])
     assert order.size == 0 and starts.size == 0
 
 
@@ -335,7 +335,7 @@ def test_flat_faces_columnwise_matches_the_vector_formula():
     flat = _simplices._flat_cells(m)[0]
     # the same test written with np.cross and a dot product, face by face
     expected = np.ones(m.n_cells, dtype=bool)
-    for face in mesh_module._FACES["hexahedron"]:
+    for face in cells.FACES["hexahedron"]:
         P = X[:, list(face)]
         e1, e2, e3 = P[:, 1] - P[:, 0], P[:, 2] - P[:, 0], P[:, 3] - P[:, 0]
         volume = np.abs(np.einsum("nd,nd->n", e1, np.cross(e2, e3)))

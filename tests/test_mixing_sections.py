@@ -7,7 +7,7 @@ from scipy import optimize, special
 
 from phasegauge.analysis.mixing import PROFILE_COLUMNS, cross_sections, mixing_length
 from phasegauge.errors import OptionError
-from phasegauge.indicator import make_indicator
+from phasegauge.model.indicator import make_indicator
 from phasegauge.io import StepFields
 from phasegauge.meshgen import delaunay_mesh, grid_mesh, to_meshio
 

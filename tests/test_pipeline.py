@@ -16,7 +16,7 @@ from phasegauge import measure
 from phasegauge.cli import main
 from phasegauge.errors import OptionError, OutputError, SeriesError
 from phasegauge.meshgen import grid_mesh, to_meshio
-from phasegauge.pipeline import MeasureOptions
+from phasegauge.run.measure import MeasureOptions
 from phasegauge.recipes import load_recipe
 
 ROOT = os.path.dirname(os.path.dirname(os.path.abspath(__file__)))

@@ -2,7 +2,7 @@
 
 import io
 
-from phasegauge.progress import Progress
+from phasegauge.run.progress import Progress
 
 
 def test_progress_line_counts_and_estimates():

@@ -24,9 +24,9 @@ from hypothesis import HealthCheck, given, settings
 from hypothesis import strategies as st
 
 from phasegauge.analysis import conservation, droplets, interface, mixing
-from phasegauge.indicator import make_indicator
+from phasegauge.model.indicator import make_indicator
 from phasegauge.io import StepFields
-from phasegauge.mesh import Mesh
+from phasegauge.model.mesh import Mesh
 from phasegauge.meshgen import delaunay_mesh, grid_mesh
 
 # a fixed, modest set of examples in the suite (well under 30 s); PHASEGAUGE_EXAMPLES=200 searches afresh and harder

@@ -129,7 +129,8 @@ def test_failed_overwrite_keeps_the_earlier_outputs(tmp_path):
 
 
 def test_interrupted_overwrite_is_finished_by_resume(tmp_path, monkeypatch):
-    from phasegauge import measure, pipeline
+    from phasegauge import measure
+    import phasegauge.run.measure as pipeline
 
     listing = _series(str(tmp_path / "in"), steps=4)
     out = tmp_path / "o"

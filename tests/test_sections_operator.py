@@ -236,7 +236,7 @@ def test_layers_of_a_grid_are_cut_once_and_repeated_exactly(monkeypatch, kind, s
     # on a structured layer every cell meets the plane alike: its pieces are cut in one cell and
     # repeated; the operator and the tables must be the general path's, bit for bit (planes
     # inside layers, through grid points, and at both ends)
-    from phasegauge.mesh import Mesh
+    from phasegauge.model.mesh import Mesh
 
     mesh = grid_mesh(shape, kind=kind)
     if stretch:  # unequal spacing along the in-plane axes

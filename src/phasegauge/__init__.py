@@ -12,11 +12,11 @@ from .errors import (AnalysisError, FieldNotFoundError, FieldShapeError, InputEr
                      PhasegaugeWarning, RangeWarning, NonFiniteWarning, SeriesError,
                      SkippedStepWarning, UnreadableFileError, UnsupportedMeshError,
                      ResolutionWarning, SeriesWarning, MeshWarning)
-from .mesh import CellBlock, Mesh, RegularGrid
-from .indicator import Indicator, make_indicator, map_to_indicator, parse_range
+from .model.mesh import CellBlock, Mesh, RegularGrid
+from .model.indicator import Indicator, make_indicator, map_to_indicator, parse_range
 from .io import Series, Step, StepInfo, open_series
-from .describe import describe_series
-from .pipeline import MeasureOptions, MeasureResult, measure
+from .io.describe import describe_series
+from .run.measure import MeasureOptions, MeasureResult, measure
 
 __all__ = [
     "__version__",

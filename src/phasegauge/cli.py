@@ -93,7 +93,7 @@ def inspect(path, as_json, scan):
     PATH is a mesh file (.vtu, .vtk, .xdmf), an XDMF time series, a folder of
     numbered files, a quoted glob or a 'time,path' step listing.
     """
-    from .describe import describe_series, format_description
+    from .io.describe import describe_series, format_description
 
     desc = describe_series(path, scan=scan)
     if as_json:
@@ -197,7 +197,7 @@ def measure(path, field, value_range, phase, level, velocity, out, analyses, adj
     quoted glob or a 'time,path' step listing. Writes steps.csv, droplets.csv,
     events.csv, plots, contours/, report.html and manifest.json into OUT.
     """
-    from .pipeline import MeasureOptions, measure as run_measure
+    from .run.measure import MeasureOptions, measure as run_measure
 
     options = MeasureOptions(
         field=field, value_range=value_range, phase=phase, level=level, velocity=velocity,
@@ -312,8 +312,8 @@ def compare(path_a, path_b, field_a, field_b, range_a, range_b, phase_a, phase_b
             label_a, label_b, level, time_tolerance, spacing, rising_bubble, reference_table, out, overwrite,
             workers, quiet):
     """Compare two runs of the same case (for example diffuse versus sharp interface)."""
-    from .comparison import RunSpec, compare_runs
-    from .indicator import parse_range
+    from .run.compare import RunSpec, compare_runs
+    from .model.indicator import parse_range
     from .report._files import output_transaction
 
     first = RunSpec(path_a, field_a, parse_range(range_a), phase_a, velocity_a, label_a)

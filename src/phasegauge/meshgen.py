@@ -18,7 +18,7 @@ from __future__ import annotations
 
 import numpy as np
 
-from .mesh import Mesh
+from .model.mesh import Mesh
 
 __all__ = ["grid_mesh", "delaunay_mesh", "to_meshio", "jitter_points"]
 

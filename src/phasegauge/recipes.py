@@ -171,8 +171,8 @@ def _resolve(base: str, value: str) -> str:
 
 
 def measure_arguments(recipe: dict) -> dict:
-    """Keyword arguments of :func:`phasegauge.pipeline.measure` for a measure recipe."""
-    from .pipeline import ANALYSES, MeasureOptions
+    """Keyword arguments of :func:`phasegauge.run.measure.measure` for a measure recipe."""
+    from .run.measure import ANALYSES, MeasureOptions
 
     inp = recipe["input"]
     iface = recipe.get("interface", {})
@@ -202,7 +202,7 @@ def run_recipe(path, *, overwrite=None, resume: bool = False, workers=None, prog
     """Run a recipe file; returns the measure or compare result."""
     recipe = load_recipe(path)
     if recipe["kind"] == "measure":
-        from .pipeline import measure
+        from .run.measure import measure
 
         kwargs = measure_arguments(recipe)
         if overwrite is not None:
@@ -210,7 +210,7 @@ def run_recipe(path, *, overwrite=None, resume: bool = False, workers=None, prog
         if workers is not None:
             kwargs["workers"] = workers
         return measure(resume=resume, progress=progress, **kwargs)
-    from .comparison import compare_runs, compare_arguments
+    from .run.compare import compare_runs, compare_arguments
 
     kwargs = compare_arguments(recipe)
     if overwrite is not None:

@@ -59,7 +59,7 @@ def tetra_series(folder: str) -> str:
 def fingerprints() -> dict:
     """Run the fixed cases and fingerprint every table they give."""
     from phasegauge import measure
-    from phasegauge.comparison import RunSpec, compare_runs
+    from phasegauge.run.compare import RunSpec, compare_runs
 
     cases = {}
     with tempfile.TemporaryDirectory() as tmp:

@@ -23,7 +23,8 @@ from dataclasses import dataclass
 import numpy as np
 
 from ..errors import OptionError
-from ..mesh import Mesh, _sort_small_rows
+from ..model._grouping import sort_small_rows
+from ..model.mesh import Mesh
 from ._sums import dot
 
 __all__ = ["Contour", "find_interface", "split_cells"]
@@ -315,7 +316,7 @@ def split_cells(mesh: Mesh, values: np.ndarray, active: np.ndarray | None = None
         first[face_id[::-1]] = np.arange(face_id.size - 1, -1, -1)
         distinct = np.nonzero(seen)[0]
         compact = np.cumsum(seen) - 1
-        corners = _sort_small_rows(faces[first[distinct]])
+        corners = sort_small_rows(faces[first[distinct]])
         centre = add_centres(corners)[compact[face_id]]
         for i in range(4):
             simplices.append(np.column_stack([faces[:, i], faces[:, (i + 1) % 4], centre, apex]))

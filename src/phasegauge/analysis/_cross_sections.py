@@ -25,8 +25,9 @@ import numpy as np
 import pandas as pd
 
 from ..errors import OptionError
-from ..indicator import Indicator
-from ..mesh import Mesh, _index_dtype
+from ..model.indicator import Indicator
+from ..model._grouping import index_dtype
+from ..model.mesh import Mesh
 from ._simplices import _flat_cells, _quad_faces, cell_extent, centre_states, node_states, split_cell_nodes
 from ._sums import dot
 
@@ -303,17 +304,17 @@ def _build_sections(mesh: Mesh, axis: int, positions: np.ndarray, lower_ends: np
         n_added += sum(rows.size * (1 + _quad_faces(mesh.blocks[b].cell_type)) for b, rows in plane_centred)
         # kept per plane in the narrowest type their values need so far (joined below in the
         # final types): the planes' parts are what the building holds longest
-        nodes = _index_dtype(mesh.n_points + n_added)
+        nodes = index_dtype(mesh.n_points + n_added)
         measures.append(m)
-        parents.append(parent.astype(_index_dtype(mesh.n_cells), copy=False))
-        corners.append((cut.reshape(-1, dim) + n_cuts).astype(_index_dtype(n_cuts + first.size), copy=False))
+        parents.append(parent.astype(index_dtype(mesh.n_cells), copy=False))
+        corners.append((cut.reshape(-1, dim) + n_cuts).astype(index_dtype(n_cuts + first.size), copy=False))
         starts.append(start[first].astype(nodes, copy=False))
         ends.append(end[first].astype(nodes, copy=False))
         weights.append(t[first])
         centred += plane_centred
         offsets.append(offsets[-1] + m.size)
         n_cuts += first.size
-    node_type = _index_dtype(mesh.n_points + n_added)
+    node_type = index_dtype(mesh.n_points + n_added)
 
     def joined(arrays, dtype, shape=(0,), transposed=False):
         """The planes' arrays end to end in ``dtype`` (first axis; with ``transposed``, the last
@@ -342,12 +343,12 @@ def _build_sections(mesh: Mesh, axis: int, positions: np.ndarray, lower_ends: np
         offsets=offsets,
         areas=np.array([measures[a:b].sum() for a, b in zip(offsets[:-1], offsets[1:])]),
         measures=measures,
-        corners=joined(corners, _index_dtype(n_cuts), (0, dim), transposed=True) if points else None,
-        parent=joined(parents, _index_dtype(mesh.n_cells)) if "cell" in locations else None,
+        corners=joined(corners, index_dtype(n_cuts), (0, dim), transposed=True) if points else None,
+        parent=joined(parents, index_dtype(mesh.n_cells)) if "cell" in locations else None,
         start=joined(starts, node_type) if points else None,
         end=joined(ends, node_type) if points else None,
         weight=joined(weights, np.float64) if points else None,
-        centred=tuple((b, rows.astype(_index_dtype(mesh.n_cells))) for b, rows in centred) if points else ())
+        centred=tuple((b, rows.astype(index_dtype(mesh.n_cells))) for b, rows in centred) if points else ())
 
 
 def _sections(mesh: Mesh, axis: int, positions: np.ndarray, lower_ends: np.ndarray,

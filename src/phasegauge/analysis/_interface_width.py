@@ -26,7 +26,8 @@ import numpy as np
 import pandas as pd
 
 from ..errors import OptionError
-from ..mesh import Mesh, _sort_columns
+from ..model._grouping import sort_columns
+from ..model.mesh import Mesh
 from ._contour import Contour, SimplexSplit, _corner_extremes, find_interface, split_cells
 
 __all__ = ["interface_metrics", "interface_profile_table", "cell_gradient", "METRIC_KEYS",
@@ -207,7 +208,7 @@ def _band_volume(measures: np.ndarray, values: list) -> float:
     band = float(measures[inside].sum())
     cut = np.flatnonzero(~inside & (high >= _LOW) & (low <= _HIGH))
     if cut.size:
-        ordered = _sort_columns([v[cut] for v in values])
+        ordered = sort_columns([v[cut] for v in values])
         band += float((measures[cut] * (_fraction_of(ordered, _HIGH) - _fraction_of(ordered, _LOW))).sum())
     return band
 

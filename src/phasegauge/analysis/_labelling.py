@@ -44,7 +44,7 @@ from scipy.sparse import csgraph
 from scipy.spatial import cKDTree
 
 from ..errors import OptionError
-from ..mesh import Mesh
+from ..model.mesh import Mesh
 
 __all__ = ["DropletLabels", "label_droplets", "TABLE_COLUMNS"]
 

@@ -6,8 +6,8 @@ import numpy as np
 import pandas as pd
 
 from ..errors import OptionError
-from ..indicator import Indicator
-from ..mesh import Mesh
+from ..model.indicator import Indicator
+from ..model.mesh import Mesh
 from ._cross_sections import field_location
 from ._segregation import cell_values
 from ._sums import dot

@@ -28,7 +28,7 @@ from dataclasses import dataclass
 import numpy as np
 
 from ..errors import InputError, OptionError, ResolutionWarning
-from ..mesh import Mesh
+from ..model.mesh import Mesh
 
 __all__ = ["SamplingGrid", "common_grid", "resample_to_grid"]
 

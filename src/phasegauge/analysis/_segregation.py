@@ -6,8 +6,8 @@ import numpy as np
 import pandas as pd
 
 from ..errors import OptionError
-from ..indicator import Indicator
-from ..mesh import Mesh
+from ..model.indicator import Indicator
+from ..model.mesh import Mesh
 from ._simplices import box_fractions
 from ._sums import dot
 

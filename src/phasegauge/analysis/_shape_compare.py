@@ -20,7 +20,7 @@ from __future__ import annotations
 import numpy as np
 
 from ..errors import OptionError
-from ..mesh import Mesh
+from ..model.mesh import Mesh
 from ._resample import SamplingGrid, check_same_space, common_grid, resample_to_grid
 
 __all__ = ["shape_comparison", "shape_comparison_on_grid", "interface_points", "interface_elements",

@@ -15,7 +15,8 @@ from __future__ import annotations
 
 import numpy as np
 
-from ..mesh import _FACES, Mesh
+from ..model.cells import FACES
+from ..model.mesh import Mesh
 
 # local corner indices of the simplices of each cell type when its faces are flat
 _SPLIT = {
@@ -79,7 +80,7 @@ def _flat_faces(cell_type: str, X) -> np.ndarray:
     """
     P = [[X[:, j, i] for i in range(3)] for j in range(X.shape[1])] if isinstance(X, np.ndarray) else X
     flat = np.ones(P[0][0].shape[0], dtype=bool)
-    for face in _FACES[cell_type]:
+    for face in FACES[cell_type]:
         if len(face) == 4:
             p0, p1, p2, p3 = (P[j] for j in face)
             e1 = [p1[i] - p0[i] for i in range(3)]
@@ -121,7 +122,7 @@ def _block_simplex_nodes(cell_type: str, conn: np.ndarray, flat: np.ndarray | No
     n = bent.size
     centre = first + np.arange(n)
     added = 1
-    for face in _FACES[cell_type]:
+    for face in FACES[cell_type]:
         F = B[:, list(face)]
         if len(face) == 3:
             out.append((np.column_stack([F, centre]), bent))
@@ -186,7 +187,7 @@ def split_cell_nodes(mesh: Mesh, cells: np.ndarray) -> tuple[np.ndarray, np.ndar
 
 
 def _quad_faces(cell_type: str) -> int:
-    return sum(len(face) == 4 for face in _FACES[cell_type])
+    return sum(len(face) == 4 for face in FACES[cell_type])
 
 
 def centre_states(mesh: Mesh, centred: list, point_state: np.ndarray) -> np.ndarray:
@@ -208,7 +209,7 @@ def centre_states(mesh: Mesh, centred: list, point_state: np.ndarray) -> np.ndar
         block = mesh.blocks[b]
         B = block.connectivity[rows]
         out.append(corner_mean(B))
-        for face in _FACES[block.cell_type]:
+        for face in FACES[block.cell_type]:
             if len(face) == 4:
                 out.append(corner_mean(B[:, list(face)]))
     if not out:

@@ -32,7 +32,7 @@ from scipy.sparse import csgraph
 from scipy.spatial import cKDTree
 
 from ..errors import OptionError
-from ..mesh import Mesh
+from ..model.mesh import Mesh
 from ._labelling import AXIS_NAMES, DropletLabels, _normalize_periodic
 
 __all__ = ["DropletTracker", "track_droplets", "EVENT_COLUMNS", "EVENT_KINDS"]

@@ -2,7 +2,7 @@
 
 meshio is the only reader. Two small additions are registered with it on first
 use: VTK pixel (8) and voxel (11) cells, which VTK's own writers produce when an
-image grid is saved as an unstructured grid; :mod:`phasegauge.mesh` turns them
+image grid is saved as an unstructured grid; :mod:`phasegauge.model.mesh` turns them
 into quads and hexahedra.
 """
 
@@ -18,7 +18,7 @@ import numpy as np
 
 from ..errors import (FieldShapeError, InputFileNotFound, MeshWarning, UnreadableFileError,
                       UnsupportedMeshError)
-from ..mesh import Mesh
+from ..model.mesh import Mesh
 
 MESH_SUFFIXES = (".vtu", ".vtk", ".xdmf", ".xmf", ".vti", ".vtr", ".vts")
 #: VTK XML structured formats meshio does not read: read with VTK's own readers (through pyvista)

@@ -26,7 +26,7 @@ import numpy as np
 
 from ..errors import (InputFileNotFound, PhasegaugeError, SeriesError, SeriesWarning,
                       UnreadableFileError)
-from ..mesh import Mesh
+from ..model.mesh import Mesh
 from ._meshio_adapter import MESH_SUFFIXES, StepFields, mesh_and_fields, read_meshio
 
 __all__ = ["Series", "StepInfo", "Step", "open_series", "natural_key", "read_listing",

@@ -23,7 +23,7 @@ import os
 
 import numpy as np
 
-from ..mesh import Mesh
+from ..model.mesh import Mesh
 from ._cahn_hilliard import cahn_hilliard
 from ._writers import write_xdmf_series
 

@@ -4,7 +4,7 @@ from __future__ import annotations
 
 import numpy as np
 
-from ..mesh import Mesh
+from ..model.mesh import Mesh
 
 __all__ = ["box_triangles"]
 

@@ -26,8 +26,8 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from .errors import (FieldNotFoundError, FieldShapeError, NonFiniteWarning, OptionError,
-                     RangeWarning)
+from ..errors import (FieldNotFoundError, FieldShapeError, NonFiniteWarning, OptionError,
+                      RangeWarning)
 from .mesh import Mesh
 
 __all__ = ["Indicator", "make_indicator", "map_to_indicator", "parse_range", "normalize_phase",

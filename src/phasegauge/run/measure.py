@@ -28,10 +28,10 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
-from .errors import (AnalysisError, FieldNotFoundError, FieldShapeError, InputError, InputFileNotFound,
-                     MeshWarning, OptionError, PhasegaugeError, PhasegaugeWarning, SeriesError, SeriesWarning,
-                     SkippedStepWarning, UnsupportedMeshError, collapse_warnings)
-from .indicator import make_indicator, normalize_phase, parse_range
+from ..errors import (AnalysisError, FieldNotFoundError, FieldShapeError, InputError, InputFileNotFound,
+                      MeshWarning, OptionError, PhasegaugeError, PhasegaugeWarning, SeriesError, SeriesWarning,
+                      SkippedStepWarning, UnsupportedMeshError, collapse_warnings)
+from ..model.indicator import make_indicator, normalize_phase, parse_range
 
 __all__ = ["MeasureOptions", "StepResult", "MeasureResult", "measure", "run_step", "ANALYSES"]
 
@@ -246,7 +246,7 @@ _SERIES = {}
 
 
 def _open(path):
-    from .io import Series
+    from ..io import Series
 
     series = _SERIES.get(path)
     if series is None:
@@ -262,7 +262,7 @@ def _open(path):
 
 
 def _step_file_hash(info) -> str:
-    from .report._files import sha256_of
+    from ..report._files import sha256_of
 
     return sha256_of(info.path)
 
@@ -275,7 +275,7 @@ def _data_stamp(info) -> str:
     """
     if info.grid is None:
         return ""
-    from .io._meshio_adapter import _hdf5_names
+    from ..io._meshio_adapter import _hdf5_names
 
     folder = os.path.dirname(os.path.abspath(info.path))
     stamps = []
@@ -346,7 +346,7 @@ def run_step(path, index: int, options: MeasureOptions, *, cache_dir: str | None
     result.seconds = time.perf_counter() - start
     result.file_sha256 = digest
     if cache_dir is not None and result.skipped is None:  # a bad step is tried again on resume
-        from .report._files import atomic_write_bytes
+        from ..report._files import atomic_write_bytes
 
         atomic_write_bytes(cached, pickle.dumps(result, protocol=pickle.HIGHEST_PROTOCOL))
     if not keep_contour:
@@ -411,13 +411,13 @@ def _velocity(step, options):
         values = np.asarray(fields.point_data[name], dtype=np.float64)
         location = "point"
     else:
-        from .errors import FieldNotFoundError
+        from ..errors import FieldNotFoundError
 
         raise FieldNotFoundError(f"velocity field '{name}' not found; fields there: "
                                  + (", ".join(fields.names()) or "none"), where=where,
                                  fix="name the velocity field with --velocity, or leave it out")
     if values.ndim != 2 or values.shape[1] not in (2, 3):
-        from .errors import FieldShapeError
+        from ..errors import FieldShapeError
 
         raise FieldShapeError(f"velocity field '{name}' must have 2 or 3 components, found shape "
                               f"{values.shape}", where=where, fix="name a vector field")
@@ -433,7 +433,7 @@ def _velocity(step, options):
 
 def analyse_step(step, options: MeasureOptions, *, contour_dir: str | None = None) -> StepResult:
     """Run the chosen analyses on one step read into the model (pure apart from contour files)."""
-    from .analysis import conservation, droplets as droplets_mod, interface, mixing
+    from ..analysis import conservation, droplets as droplets_mod, interface, mixing
 
     mesh = step.mesh
     ind = make_indicator(mesh, step.fields, options.field, value_range=options.value_range,
@@ -459,7 +459,7 @@ def analyse_step(step, options: MeasureOptions, *, contour_dir: str | None = Non
     if "interface" in options.analyses:
         m.update(interface.interface_metrics(mesh, ind, level=options.level, contour=contour))
         if contour_dir is not None:
-            from .io import write_contour
+            from ..io import write_contour
 
             name = f"interface_{step.index:06d}.vtu"
             write_contour(contour, os.path.join(contour_dir, name))
@@ -677,7 +677,7 @@ def measure(path, field: str | None = None, *, options: MeasureOptions | None = 
     aside, and removes a new folder unless it holds finished steps (see
     :func:`phasegauge.report._files.output_transaction`).
     """
-    from .io import Series
+    from ..io import Series
 
     if options is None:
         if field is None:
@@ -697,7 +697,7 @@ def measure(path, field: str | None = None, *, options: MeasureOptions | None = 
         problem = series.time_problem()
         if problem is not None:
             raise problem
-        from .report._files import output_transaction
+        from ..report._files import output_transaction
 
         with output_transaction(out) as txn:
             return _measure(series, path, options, out, txn, workers=workers, scheduler=scheduler,
@@ -721,7 +721,7 @@ def _measure(series, path, options, out, txn, *, workers, scheduler, overwrite, 
     started = time.time()
     cache_dir = contour_dir = None
     if out is not None:
-        from .report._files import prepare_output_folder
+        from ..report._files import prepare_output_folder
 
         run_key = hashlib.sha256(f"{os.path.abspath(path)}|{options.key()}".encode()).hexdigest()[:16]
         prepare_output_folder(out, overwrite=overwrite, resume=resume, run_key=run_key)
@@ -766,7 +766,7 @@ def _finish(series, results, options, out, started, workers, scheduler, resume, 
     """Assemble the ordered step results and, with ``out``, write the report."""
     result = assemble(series, results, options, notes=notes)
     if out is not None:
-        from .report import write_measure_report
+        from ..report import write_measure_report
 
         write_measure_report(out, result, series=series, started=started,
                              execution={"workers": workers, "scheduler": scheduler, "resume": resume})
@@ -774,7 +774,7 @@ def _finish(series, results, options, out, started, workers, scheduler, resume, 
 
 
 def _close_open_series() -> None:
-    from .io._meshio_adapter import remember_mesh
+    from ..io._meshio_adapter import remember_mesh
 
     for s in _SERIES.values():
         remember_mesh(getattr(s, "_mesh", None))  # workers forked later reuse it with its caches
@@ -804,7 +804,7 @@ def assemble(series, results: list, options: MeasureOptions, *, notes=()) -> Mea
     """
     import pandas as pd
 
-    from .analysis import conservation
+    from ..analysis import conservation
 
     done = [r for r in results if r.skipped is None]
     if not done:
@@ -842,7 +842,7 @@ def assemble(series, results: list, options: MeasureOptions, *, notes=()) -> Mea
         if any(r.profile is not None for r in done) else pd.DataFrame()
     audit = {}
     if "interface" in options.analyses and "interface_variance" in steps:
-        from .analysis.interface import diffusion_audit
+        from ..analysis.interface import diffusion_audit
 
         audit = diffusion_audit(steps["time"].to_numpy(), steps["interface_variance"].to_numpy(),
                                 physical_diffusivity=options.diffusivity)
@@ -870,7 +870,7 @@ def _mesh_change_records(series, done) -> list:
 
 def _known_mesh(signature: str):
     """A mesh this process already built for the steps (its caches are reused), or None."""
-    from .io._meshio_adapter import _MESH_POOL  # meshes set aside before workers forked
+    from ..io._meshio_adapter import _MESH_POOL  # meshes set aside before workers forked
 
     for mesh in [getattr(opened, "_mesh", None) for opened in _SERIES.values()] + list(_MESH_POOL):
         if mesh is not None and mesh.signature == signature:
@@ -879,7 +879,7 @@ def _known_mesh(signature: str):
 
 
 def _track(series, done, options):
-    from .analysis.tracking import DropletTracker
+    from ..analysis.tracking import DropletTracker
 
     tracker = DropletTracker(ignore_remerge_within=options.ignore_remerge_within, periodic=options.periodic)
     meshes = {}

@@ -14,7 +14,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from .errors import OptionError
+from ..errors import OptionError
 
 __all__ = ["RunSpec", "CompareResult", "compare_runs", "compare_arguments"]
 
@@ -71,7 +71,7 @@ def compare_runs(first: RunSpec, second: RunSpec, *, out=None, overwrite: bool =
     workers : int
         Local worker processes for measuring each run.
     """
-    from .report._files import output_transaction
+    from ..report._files import output_transaction
 
     with output_transaction(out):
         return _compare_runs(first, second, out=out, overwrite=overwrite, level=level,
@@ -83,17 +83,17 @@ def _compare_runs(first, second, *, out, overwrite, level, time_tolerance, spaci
                   rising_bubble, workers, progress, snapshots):
     import pandas as pd
 
-    from .analysis import compare as cmp
-    from .analysis import references
-    from .io import Series
-    from .indicator import make_indicator
-    from .pipeline import MeasureOptions, measure
+    from ..analysis import compare as cmp
+    from ..analysis import references
+    from ..io import Series
+    from ..model.indicator import make_indicator
+    from .measure import MeasureOptions, measure
 
     if not 0 < level < 1:
         raise OptionError(f"level must lie strictly between 0 and 1, found {level}", fix="usually 0.5")
     started = time.time()
     if out is not None:
-        from .report._files import prepare_output_folder
+        from ..report._files import prepare_output_folder
 
         prepare_output_folder(out, overwrite=overwrite, run_key="")
     labels = (first.label or "first", second.label or "second")
@@ -153,7 +153,7 @@ def _compare_runs(first, second, *, out, overwrite, level, time_tolerance, spaci
                            droplet_statistics=drop_stats, reference_checks=reference_checks,
                            first=res_a, second=res_b, labels=labels)
     if out is not None:
-        from .report._compare_report import write_compare_report
+        from ..report._compare_report import write_compare_report
 
         write_compare_report(out, result, specs=(first, second), overlays=overlays, started=started,
                              level=level)
@@ -163,7 +163,7 @@ def _compare_runs(first, second, *, out, overwrite, level, time_tolerance, spaci
 def _reference_quantities(result):
     """The steps table joined with the largest droplet's quantities (for a user's reference table)."""
     steps = result.steps.copy()
-    from .analysis.references import bubble_history
+    from ..analysis.references import bubble_history
 
     bubble = bubble_history(result.droplets) if len(result.droplets) else result.droplets
     if len(bubble):
@@ -174,7 +174,7 @@ def _reference_quantities(result):
 
 def compare_arguments(recipe: dict) -> dict:
     """Keyword arguments of :func:`compare_runs` for a compare recipe."""
-    from .indicator import parse_range
+    from ..model.indicator import parse_range
 
     def spec(table):
         t = recipe[table]

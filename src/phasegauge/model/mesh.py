@@ -18,70 +18,18 @@ that order.
 from __future__ import annotations
 
 import hashlib
-import sys
 from dataclasses import dataclass
 from functools import cached_property
 
 import numpy as np
 
-from .errors import UnsupportedMeshError
+from ..errors import UnsupportedMeshError
+from ._geometry import cell_geometry
+from ._grouping import (CHUNK, all_distinct, grid_face_ids, group_columns, index_dtype, sort_columns,
+                        sort_small_rows, unique_ints)
+from .cells import CELL_DIMENSION, EDGES, FACES, LINEAR_CORNERS
 
-__all__ = ["Mesh", "CellBlock", "RegularGrid", "CELL_DIMENSION", "LINEAR_CORNERS"]
-
-#: topological dimension of every cell type the model accepts
-CELL_DIMENSION = {
-    "vertex": 0,
-    "line": 1,
-    "triangle": 2,
-    "quad": 2,
-    "polygon": 2,
-    "tetra": 3,
-    "hexahedron": 3,
-    "wedge": 3,
-    "pyramid": 3,
-}
-
-#: higher-order and VTK-specific types mapped to a linear type (corner nodes, reordered)
-LINEAR_CORNERS = {
-    "line3": ("line", [0, 1]),
-    "triangle6": ("triangle", [0, 1, 2]),
-    "triangle7": ("triangle", [0, 1, 2]),
-    "quad8": ("quad", [0, 1, 2, 3]),
-    "quad9": ("quad", [0, 1, 2, 3]),
-    "tetra10": ("tetra", [0, 1, 2, 3]),
-    "hexahedron20": ("hexahedron", list(range(8))),
-    "hexahedron24": ("hexahedron", list(range(8))),
-    "hexahedron27": ("hexahedron", list(range(8))),
-    "wedge15": ("wedge", list(range(6))),
-    "wedge18": ("wedge", list(range(6))),
-    "pyramid13": ("pyramid", list(range(5))),
-    "pyramid14": ("pyramid", list(range(5))),
-    # VTK pixel and voxel number their corners lexicographically, not around the face
-    "pixel": ("quad", [0, 1, 3, 2]),
-    "voxel": ("hexahedron", [0, 1, 3, 2, 4, 5, 7, 6]),
-}
-
-# local faces (3D) or edges (2D) that adjacency is built from, VTK corner order
-_FACES = {
-    "triangle": [(0, 1), (1, 2), (2, 0)],
-    "quad": [(0, 1), (1, 2), (2, 3), (3, 0)],
-    "tetra": [(0, 1, 2), (0, 1, 3), (1, 2, 3), (0, 2, 3)],
-    "hexahedron": [(0, 3, 2, 1), (4, 5, 6, 7), (0, 1, 5, 4), (1, 2, 6, 5), (2, 3, 7, 6), (3, 0, 4, 7)],
-    "wedge": [(0, 2, 1), (3, 4, 5), (0, 1, 4, 3), (1, 2, 5, 4), (2, 0, 3, 5)],
-    "pyramid": [(0, 3, 2, 1), (0, 1, 4), (1, 2, 4), (2, 3, 4), (3, 0, 4)],
-}
-
-_EDGES = {
-    "triangle": [(0, 1), (1, 2), (2, 0)],
-    "quad": [(0, 1), (1, 2), (2, 3), (3, 0)],
-    "tetra": [(0, 1), (1, 2), (2, 0), (0, 3), (1, 3), (2, 3)],
-    "hexahedron": [(0, 1), (1, 2), (2, 3), (3, 0), (4, 5), (5, 6), (6, 7), (7, 4),
-                   (0, 4), (1, 5), (2, 6), (3, 7)],
-    "wedge": [(0, 1), (1, 2), (2, 0), (3, 4), (4, 5), (5, 3), (0, 3), (1, 4), (2, 5)],
-    "pyramid": [(0, 1), (1, 2), (2, 3), (3, 0), (0, 4), (1, 4), (2, 4), (3, 4)],
-}
-
-
+__all__ = ["Mesh", "CellBlock", "RegularGrid"]
 @dataclass(frozen=True)
 class CellBlock:
     """Cells of one type.
@@ -396,7 +344,7 @@ class Mesh:
         cent = np.empty((self.n_cells, dim))
         for block, start in zip(self.blocks, self.block_offsets[:-1]):
             sl = slice(int(start), int(start) + len(block))
-            _cell_geometry(block.cell_type, X, block.connectivity, out=(signed[sl], cent[sl]))
+            cell_geometry(block.cell_type, X, block.connectivity, out=(signed[sl], cent[sl]))
         signed.flags.writeable = False  # shared by every step (and :attr:`cell_measures`): read-only
         cent.flags.writeable = False
         return signed, cent
@@ -462,7 +410,7 @@ class Mesh:
         from scipy import sparse
 
         nnz = sum(b.connectivity.size for b in self.blocks)
-        dtype = _index_dtype(max(nnz, self.n_points) + 1)
+        dtype = index_dtype(max(nnz, self.n_points) + 1)
         indptr = np.empty(self.n_cells + 1, dtype=dtype)
         indices = np.empty(nnz, dtype=dtype)
         indptr[0] = last = 0
@@ -482,7 +430,7 @@ class Mesh:
         if block.cell_type == "polygon":
             k = block.connectivity.shape[1]
             return [(i, (i + 1) % k) for i in range(k)]
-        return _FACES[block.cell_type]
+        return FACES[block.cell_type]
 
     def _face_rows(self):
         """Every face of every cell as sorted corner columns, block after block, face after face.
@@ -496,7 +444,7 @@ class Mesh:
         width = 2 if self.dimension == 2 else (3 if max(sizes) == 3 else 4)
         counts = [len(b) * len(self._local_faces(b)) for b in self.blocks]
         row_starts = np.concatenate([[0], np.cumsum(counts)]).astype(np.int64)
-        dtype = _index_dtype(self.n_points + 1)
+        dtype = index_dtype(self.n_points + 1)
         shape = (width, int(row_starts[-1]))
         # -1 pads the triangles of a table with quads; a table of one face size is filled whole
         columns = np.full(shape, -1, dtype=dtype) if min(sizes, default=width) < width else np.empty(shape, dtype)
@@ -504,7 +452,7 @@ class Mesh:
             corners, n = np.ascontiguousarray(block.connectivity.T, dtype=dtype), len(block)
             for j, face in enumerate(self._local_faces(block)):
                 rows = slice(int(start) + j * n, int(start) + (j + 1) * n)
-                for t, col in enumerate(_sort_columns([corners[i] for i in face])):
+                for t, col in enumerate(sort_columns([corners[i] for i in face])):
                     columns[width - len(face) + t, rows] = col
         return columns, row_starts
 
@@ -524,9 +472,9 @@ class Mesh:
         Faces are numbered in the lexicographic order of their sorted corners.
         """
         columns, row_starts = self._face_rows()
-        order, starts = _group_columns(list(columns))
+        order, starts = group_columns(list(columns))
         m = order.size
-        sizes = np.diff(starts, append=m).astype(_index_dtype(m + 1))
+        sizes = np.diff(starts, append=m).astype(index_dtype(m + 1))
         # faces owned by one cell only
         lone = order[starts[sizes == 1]]
         width = 2 if self.dimension == 2 else 4
@@ -546,7 +494,7 @@ class Mesh:
         key *= self.n_cells
         key += high[apart]
         del first, low, high, apart
-        key = _unique_ints(key)
+        key = unique_ints(key)
         # int32 where cell ids times a small count (faces per cell) still fit: users build
         # table offsets as cell * width in the pairs' own dtype
         pairs = np.empty((key.size, 2), dtype=np.int32 if self.n_cells < 2 ** 24 else np.int64)
@@ -558,7 +506,7 @@ class Mesh:
         if quads and self.dimension == 3 and self.regular_grid is not None and self._grid_face_numbers is not None:
             quads = []  # :meth:`face_numbers` numbers a grid's faces by their grid positions
         if quads:
-            dtype = _index_dtype(starts.size)
+            dtype = index_dtype(starts.size)
             group = np.empty(m, dtype=dtype)
             group[order] = np.repeat(np.arange(starts.size, dtype=dtype), sizes)
             for b in quads:
@@ -598,19 +546,19 @@ class Mesh:
         position = [i.astype(small) for i in np.unravel_index(grid.point_index, grid.point_shape)]
         shapes = [tuple(n + (a == axis) for a, n in enumerate(cells)) for axis in range(3)]
         offsets = np.cumsum([0] + [int(np.prod(s)) for s in shapes])
-        dtype = _index_dtype(int(offsets[-1]))
+        dtype = index_dtype(int(offsets[-1]))
         out = []
         for block in self.blocks:
             conn = block.connectivity
-            faces = _FACES[block.cell_type]
+            faces = FACES[block.cell_type]
             numbers = np.empty((len(block), len(faces)), dtype=dtype)
-            for start in range(0, len(block), _CHUNK):
-                corners = np.ascontiguousarray(conn[start:start + _CHUNK].T)
+            for start in range(0, len(block), CHUNK):
+                corners = np.ascontiguousarray(conn[start:start + CHUNK].T)
                 for j, face in enumerate(faces):
-                    ids = _grid_face_ids([[i[corners[c]] for c in face] for i in position], shapes, offsets)
+                    ids = grid_face_ids([[i[corners[c]] for c in face] for i in position], shapes, offsets)
                     if ids is None:
                         return None
-                    numbers[start:start + _CHUNK, j] = ids
+                    numbers[start:start + CHUNK, j] = ids
             out.append(numbers)
         return out
 
@@ -624,7 +572,7 @@ class Mesh:
         Built on every call (not cached: the mesh keeps only what is read from it).
         """
         columns, row_starts = self._face_rows()
-        order, starts = _group_columns(list(columns))
+        order, starts = group_columns(list(columns))
         width = 2 if self.dimension == 2 else 4
         faces = np.full((columns.shape[1], width), -1, dtype=np.int64)
         faces[:, width - columns.shape[0]:] = columns.T
@@ -686,12 +634,12 @@ class Mesh:
                 k = conn.shape[1]
                 local = [(i, (i + 1) % k) for i in range(k)]
             else:
-                local = _EDGES[block.cell_type]
+                local = EDGES[block.cell_type]
             for a, b in local:
                 rows.append(np.stack([conn[:, a], conn[:, b]], axis=1))
-        e = _sort_small_rows(np.concatenate(rows))
+        e = sort_small_rows(np.concatenate(rows))
         e = e[e[:, 0] != e[:, 1]]
-        key = _unique_ints(e[:, 0] * np.int64(self.n_points) + e[:, 1])
+        key = unique_ints(e[:, 0] * np.int64(self.n_points) + e[:, 1])
         return np.stack([key // self.n_points, key % self.n_points], axis=1)
 
     # ---------------------------------------------------------- regular grids
@@ -726,15 +674,15 @@ class Mesh:
             if np.any(np.abs(values[np.minimum(i, values.size - 1)] - col) > tol):
                 return None
             idx.append(i.astype(small))
-        flat_points = np.ravel_multi_index(tuple(idx), point_shape).astype(_index_dtype(self.n_points), copy=False)
-        if not _all_distinct(flat_points, self.n_points):
+        flat_points = np.ravel_multi_index(tuple(idx), point_shape).astype(index_dtype(self.n_points), copy=False)
+        if not all_distinct(flat_points, self.n_points):
             return None
         # every cell spans one step along every axis: corner indices column by column, in chunks
         conn = self.blocks[0].connectivity if len(self.blocks) == 1 else np.concatenate(
             [b.connectivity for b in self.blocks])
         lows = [np.empty(self.n_cells, dtype=small) for _ in idx]
-        for start in range(0, self.n_cells, _CHUNK):
-            corners = np.ascontiguousarray(conn[start:start + _CHUNK].T)
+        for start in range(0, self.n_cells, CHUNK):
+            corners = np.ascontiguousarray(conn[start:start + CHUNK].T)
             for i, low in zip(idx, lows):
                 lo, hi = i[corners[0]], i[corners[0]]
                 for c in corners[1:]:
@@ -744,9 +692,9 @@ class Mesh:
                 hi -= lo
                 if np.any(hi != 1):
                     return None
-                low[start:start + _CHUNK] = lo
-        flat_cells = np.ravel_multi_index(tuple(lows), cell_shape).astype(_index_dtype(self.n_cells), copy=False)
-        if not _all_distinct(flat_cells, self.n_cells):
+                low[start:start + CHUNK] = lo
+        flat_cells = np.ravel_multi_index(tuple(lows), cell_shape).astype(index_dtype(self.n_cells), copy=False)
+        if not all_distinct(flat_cells, self.n_cells):
             return None
         steps = [np.diff(a) for a in axes]
         uniform = all(np.allclose(s, s.mean(), rtol=1e-6, atol=0) for s in steps)
@@ -808,8 +756,8 @@ class Mesh:
         good = finite[:, 0] if one else finite
         for block, offset in zip(self.blocks, self.block_offsets[:-1]):
             conn = block.connectivity
-            for start in range(0, len(block), _CHUNK):
-                corners = conn[start:start + _CHUNK].T
+            for start in range(0, len(block), CHUNK):
+                corners = conn[start:start + CHUNK].T
                 rows = slice(int(offset) + start, int(offset) + start + corners.shape[1])
                 t = total[rows, 0] if one else total[rows]
                 c = count[rows, 0] if one else count[rows]
@@ -914,517 +862,3 @@ class Mesh:
     @cached_property
     def _incidence_t(self):
         return self.incidence.T.tocsr()
-
-
-# ---------------------------------------------------------------------------
-# grouping equal rows
-
-#: cells (or rows) per chunk where work goes column by column: the temporaries stay in cache
-_CHUNK = 1 << 15
-
-
-def _grid_face_ids(v: list, shapes: list, offsets: np.ndarray) -> np.ndarray | None:
-    """Numbers of quad faces from their corners' grid positions ``v[axis][corner]`` (each (n,)).
-
-    None when a face does not lie in one grid plane on the four corners of one grid square.
-    """
-    n = v[0][0].size
-    ids = np.full(n, -1, dtype=np.int64)
-    for axis in range(3):
-        a = v[axis]
-        flat = (a[0] == a[1]) & (a[0] == a[2]) & (a[0] == a[3])
-        if not flat.any():
-            continue
-        whole = bool(flat.all())  # usually: a generator orders every cell's corners alike
-        if whole and np.any(ids >= 0) or not whole and np.any(ids[flat] >= 0):
-            return None  # flat along two axes: a degenerate face
-        def pick(x, flat=flat, whole=whole):
-            return x if whole else x[flat]
-
-        index = [None, None, None]
-        index[axis] = pick(a[0])
-        seen = np.zeros(index[axis].size, dtype=np.uint8)
-        codes = [np.zeros_like(seen) for _ in range(4)]
-        for bit, other in ((0, (axis + 1) % 3), (1, (axis + 2) % 3)):
-            b = [pick(x) for x in v[other]]
-            low = np.minimum(np.minimum(b[0], b[1]), np.minimum(b[2], b[3]))
-            high = np.maximum(np.maximum(b[0], b[1]), np.maximum(b[2], b[3]))
-            if np.any(high - low != 1):
-                return None
-            index[other] = low
-            for k in range(4):
-                codes[k] |= (b[k] != low).view(np.uint8) << np.uint8(bit)
-        # the four corners are the four corners of the square, each once
-        for code in codes:
-            seen |= np.left_shift(np.uint8(1), code)
-        if np.any(seen != 15):
-            return None
-        number = offsets[axis] + np.ravel_multi_index(tuple(index), shapes[axis])
-        if whole:
-            ids = number
-        else:
-            ids[flat] = number
-    if np.any(ids < 0):
-        return None
-    return ids
-
-
-def _unique_ints(values: np.ndarray) -> np.ndarray:
-    """Sorted distinct values of a 1D integer array.
-
-    By sorting: ``np.unique`` without ``return_*`` options takes a hash path
-    that is many times slower on millions of values (numpy 2.3-2.4).
-    """
-    s = np.sort(np.ravel(values))
-    if s.size < 2:
-        return s
-    return s[np.concatenate([[True], s[1:] != s[:-1]])]
-
-
-def _index_dtype(n: int):
-    """int32 for indices (or index arithmetic) below ``n`` when they fit, else int64."""
-    return np.int32 if n < 2 ** 31 - 1 else np.int64
-
-
-# comparators of the smallest sorting networks (Knuth, TAOCP vol. 3, 5.3.4)
-_NETWORKS = {2: ((0, 1),), 3: ((1, 2), (0, 2), (0, 1)), 4: ((0, 1), (2, 3), (0, 2), (1, 3), (1, 2))}
-
-
-def _sort_columns(columns: list) -> list:
-    """Sort k <= 4 equal-length arrays elementwise (row i sorted across the arrays), by a network."""
-    c = list(columns)
-    for a, b in _NETWORKS.get(len(c), ()):
-        lo = np.minimum(c[a], c[b])
-        c[b] = np.maximum(c[a], c[b])
-        c[a] = lo
-    return c
-
-
-def _sort_small_rows(rows: np.ndarray) -> np.ndarray:
-    """Sort each row of an (n, k) array; a sorting network for k <= 4 (fast for many rows)."""
-    if rows.shape[1] not in _NETWORKS:
-        return np.sort(rows, axis=1)
-    return np.stack(_sort_columns([rows[:, j] for j in range(rows.shape[1])]), axis=1)
-
-
-def _all_distinct(values: np.ndarray, n: int) -> bool:
-    """True when ``values`` (integers in 0 .. n - 1) are all different (a mask, no sort)."""
-    seen = np.zeros(n, dtype=bool)
-    seen[values] = True
-    return int(np.count_nonzero(seen)) == values.size
-
-
-def _bits(n: int) -> int:
-    """Bits needed for the integers 0 .. n - 1."""
-    return max(int(n - 1).bit_length(), 0)
-
-
-def _sort_order(key: np.ndarray, key_bits: int) -> tuple[np.ndarray, np.ndarray]:
-    """A permutation sorting ``key`` (non-negative int64 below ``2**key_bits``), ties by position.
-
-    The position is packed below the key where both fit in 63 bits, so one plain
-    ``np.sort`` (vectorised) replaces ``np.argsort`` (several times slower on millions of
-    keys). Returns ``(order, sorted_key)``; ``key`` is overwritten (it becomes ``sorted_key``).
-    """
-    n = key.size
-    shift = max(_bits(n), 1)
-    if key_bits + shift > 63:
-        order = np.argsort(key, kind="stable")
-        return order, key[order]
-    packed = key  # packed in place: the caller hands the key over
-    packed <<= np.int64(shift)
-    for start in range(0, n, _CHUNK):  # positions below the key (small temporaries)
-        packed[start:start + _CHUNK] |= np.arange(start, min(start + _CHUNK, n), dtype=np.int64)
-    packed.sort()
-    if shift < 31:  # positions fit in the low 32-bit half of each entry
-        low = packed.view(np.int32)[0 if sys.byteorder == "little" else 1::2]
-        order = low & np.int32((1 << shift) - 1)
-    else:
-        order = packed & np.int64((1 << shift) - 1)
-    packed >>= np.int64(shift)
-    return order, packed
-
-
-def _group_columns(columns: list) -> tuple[np.ndarray, np.ndarray]:
-    """Group equal rows of the table whose columns are ``columns`` (equal-length int arrays).
-
-    Returns ``order``, a permutation that sorts the rows lexicographically (so
-    equal rows are next to each other), and ``starts``, the first position of
-    each group of equal rows in that order. Exact: the rows are sorted by
-    their own values, packed in 63-bit digits (least significant digit first,
-    each pass stable), never by a hash.
-
-    References
-    ----------
-    Least-significant-digit radix sorting with a stable sort per digit: Knuth, D. E.
-    (1998), The Art of Computer Programming, vol. 3, 2nd ed., section 5.2.5.
-    """
-    n = columns[0].size if columns else 0
-    if n == 0:
-        return np.zeros(0, dtype=np.int64), np.zeros(0, dtype=np.int64)
-    lows = [int(c.min()) for c in columns]
-    widths = [_bits(int(c.max()) - lo + 1) for c, lo in zip(columns, lows)]
-    room = 63 - max(_bits(n), 1)
-    # digits: runs of neighbouring columns whose bits fit in one pass, last column first
-    digits, current, used = [], [], 0
-    for j in reversed(range(len(columns))):
-        if widths[j] == 0:
-            continue
-        if current and used + widths[j] > room:
-            digits.append(current)
-            current, used = [], 0
-        current.append(j)
-        used += widths[j]
-    if current:
-        digits.append(current)
-    if not digits:  # every row is the same
-        return np.arange(n, dtype=np.int64), np.zeros(1, dtype=np.int64)
-    order, ranks = None, []  # ranks: per digit done, the rank of each row's digit value, in order
-    index = _index_dtype(n)
-    for digit in digits:
-        key, shift = np.empty(n, dtype=np.int64), 0
-        for position, j in enumerate(digit):  # least significant column first
-            for lo in range(0, n, _CHUNK):  # in chunks: no full-length int64 temporaries
-                rows = slice(lo, lo + _CHUNK)
-                part = (columns[j][rows] if order is None else np.take(columns[j], order[rows])).astype(np.int64)
-                if lows[j]:
-                    part -= lows[j]
-                if shift:
-                    part <<= np.int64(shift)
-                if position > 0:  # later columns are or-ed into the key the first one set
-                    key[rows] |= part
-                else:
-                    key[rows] = part
-            shift += widths[j]
-        del part
-        step, ordered = _sort_order(key, shift)
-        del key
-        ranks = [r[step] for r in ranks]
-        order = step if order is None else order[step]
-        del step
-        if digit is not digits[-1]:
-            rank = np.zeros(n, dtype=index)
-            np.cumsum(ordered[1:] != ordered[:-1], out=rank[1:])
-            ranks.append(rank)
-            del ordered, rank
-    # rows differ where any digit differs
-    new = np.zeros(n, dtype=bool)
-    new[0] = True
-    np.not_equal(ordered[1:], ordered[:-1], out=new[1:])
-    del ordered
-    for r in ranks:
-        new[1:] |= r[1:] != r[:-1]
-    return order, np.flatnonzero(new)
-
-
-# ---------------------------------------------------------------------------
-# per-block geometry
-
-_G = 0.5 - 0.5 / np.sqrt(3.0), 0.5 + 0.5 / np.sqrt(3.0)  # 2-point Gauss on [0, 1]
-
-# Dunavant degree-4 rule on the unit triangle (barycentric points, weights summing to 1)
-_TRI4_POINTS = np.array([
-    [0.108103018168070, 0.445948490915965, 0.445948490915965],
-    [0.445948490915965, 0.108103018168070, 0.445948490915965],
-    [0.445948490915965, 0.445948490915965, 0.108103018168070],
-    [0.816847572980459, 0.091576213509771, 0.091576213509771],
-    [0.091576213509771, 0.816847572980459, 0.091576213509771],
-    [0.091576213509771, 0.091576213509771, 0.816847572980459],
-])
-_TRI4_WEIGHTS = np.array([0.223381589678011] * 3 + [0.109951743655322] * 3)
-
-
-def _det(J: np.ndarray) -> np.ndarray:
-    if J.shape[-1] == 2:
-        return J[..., 0, 0] * J[..., 1, 1] - J[..., 0, 1] * J[..., 1, 0]
-    return (J[..., 0, 0] * (J[..., 1, 1] * J[..., 2, 2] - J[..., 1, 2] * J[..., 2, 1])
-            - J[..., 0, 1] * (J[..., 1, 0] * J[..., 2, 2] - J[..., 1, 2] * J[..., 2, 0])
-            + J[..., 0, 2] * (J[..., 1, 0] * J[..., 2, 1] - J[..., 1, 1] * J[..., 2, 0]))
-
-
-def _quadrature(X: np.ndarray, rule) -> tuple[np.ndarray, np.ndarray]:
-    """Integrate 1 and x over mapped cells: X (n, k, d); rule yields (N, dN, w)."""
-    n, _, d = X.shape
-    measure = np.zeros(n)
-    moment = np.zeros((n, d))
-    for N, dN, w in rule:
-        J = np.einsum("nkd,ke->nde", X, dN)
-        detJ = _det(J) * w
-        measure += detJ
-        moment += (N @ X) * detJ[:, None]
-    return measure, moment
-
-
-def _quad_rule():
-    for u in _G:
-        for v in _G:
-            N = np.array([(1 - u) * (1 - v), u * (1 - v), u * v, (1 - u) * v])
-            dN = np.array([[-(1 - v), -(1 - u)], [1 - v, -u], [v, u], [-v, 1 - u]])
-            yield N, dN, 0.25
-
-
-def _hex_rule():
-    corners = np.array([[0, 0, 0], [1, 0, 0], [1, 1, 0], [0, 1, 0],
-                        [0, 0, 1], [1, 0, 1], [1, 1, 1], [0, 1, 1]], dtype=float)
-    for u in _G:
-        for v in _G:
-            for w in _G:
-                p = np.array([u, v, w])
-                f = np.where(corners == 1, p, 1 - p)  # (8, 3) one-axis factors
-                sgn = np.where(corners == 1, 1.0, -1.0)
-                N = f.prod(axis=1)
-                dN = np.empty((8, 3))
-                for a in range(3):
-                    others = [b for b in range(3) if b != a]
-                    dN[:, a] = sgn[:, a] * f[:, others[0]] * f[:, others[1]]
-                yield N, dN, 0.125
-
-
-def _wedge_rule():
-    for bary, wt in zip(_TRI4_POINTS, _TRI4_WEIGHTS):
-        xi, eta = bary[1], bary[2]
-        L = np.array([1 - xi - eta, xi, eta])
-        dL = np.array([[-1.0, -1.0], [1.0, 0.0], [0.0, 1.0]])
-        for z in _G:
-            N = np.concatenate([L * (1 - z), L * z])
-            dN = np.zeros((6, 3))
-            dN[:3, :2] = dL * (1 - z)
-            dN[3:, :2] = dL * z
-            dN[:3, 2] = -L
-            dN[3:, 2] = L
-            yield N, dN, wt * 0.5 * 0.5
-
-
-_RULES = {"quad": list(_quad_rule()), "hexahedron": list(_hex_rule()), "wedge": list(_wedge_rule())}
-
-
-def _simplex(X: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
-    """Signed measure and centroid of triangles (2D) or tetrahedra (3D), X of shape (n, d+1, d)."""
-    d = X.shape[2]
-    p0 = X[:, 0, :]
-    if d == 2:
-        a = X[:, 1, :] - p0
-        b = X[:, 2, :] - p0
-        return 0.5 * (a[:, 0] * b[:, 1] - a[:, 1] * b[:, 0]), X.mean(axis=1)
-    a = X[:, 1, :] - p0
-    b = X[:, 2, :] - p0
-    c = X[:, 3, :] - p0
-    det = (a[:, 0] * (b[:, 1] * c[:, 2] - b[:, 2] * c[:, 1])
-           - a[:, 1] * (b[:, 0] * c[:, 2] - b[:, 2] * c[:, 0])
-           + a[:, 2] * (b[:, 0] * c[:, 1] - b[:, 1] * c[:, 0]))
-    return det / 6.0, X.mean(axis=1)
-
-
-def _block_geometry(cell_type: str, X: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
-    """Signed measures and centroids of a block, X of shape (n, k, dim)."""
-    if cell_type in ("triangle", "tetra"):
-        return _simplex(X)
-    if cell_type == "polygon":
-        k = X.shape[1]
-        total = np.zeros(X.shape[0])
-        moment = np.zeros((X.shape[0], 2))
-        for i in range(1, k - 1):
-            tri = X[:, [0, i, i + 1], :]
-            a, c = _simplex(tri)
-            total += a
-            moment += a[:, None] * c
-        with np.errstate(invalid="ignore", divide="ignore"):
-            cent = np.where(total[:, None] != 0, moment / np.where(total == 0, 1, total)[:, None],
-                            X.mean(axis=1))
-        return total, cent
-    if cell_type == "pyramid":
-        # a pyramid is the cone from the apex over its (bilinear) base: the trilinear map of a
-        # hexahedron whose four top corners meet at the apex, integrated exactly like one
-        X = X[:, [0, 1, 2, 3, 4, 4, 4, 4], :]
-        cell_type = "hexahedron"
-    if cell_type in _RULES:
-        measure, moment = _quadrature(X, _RULES[cell_type])
-        with np.errstate(invalid="ignore", divide="ignore"):
-            cent = np.where(measure[:, None] != 0,
-                            moment / np.where(measure == 0, 1, measure)[:, None], X.mean(axis=1))
-        if cell_type == "wedge":
-            # VTK orders a wedge's base (0, 1, 2) with its normal pointing away from the top,
-            # so the reference map of a valid wedge is left-handed
-            measure = -measure
-        return measure, cent
-    raise UnsupportedMeshError(f"no geometry for cell type '{cell_type}'")
-
-
-# ---------------------------------------------------------------------------
-# per-block geometry by corner columns, in chunks (the fast paths)
-
-#: a hexahedron or wedge counts as affine (a parallelepiped, a prism with equal parallel ends) when
-#: the size of its non-affine map coefficients times its edge size squared is at most this share of
-#: its volume; its volume is then exact to rounding and its centroid within ~1e-13 edge lengths
-_AFFINE = 1e-13
-
-
-def _cell_geometry(cell_type: str, X: np.ndarray, conn: np.ndarray,
-                   out: tuple | None = None) -> tuple[np.ndarray, np.ndarray]:
-    """Signed measures and centroids of the cells ``conn`` (n, k) of one type, X (n_points, dim).
-
-    The same quantities as :func:`_block_geometry`, computed from the corners' coordinate columns
-    in chunks (small temporaries): simplices directly, quads in closed form, hexahedra and
-    wedges that are affine by their triple product, other hexahedra and pyramids by Gauss
-    points of the trilinear map written in its coefficients. ``out``: arrays (n,) and
-    (n, dim) to write into (returned), else new ones.
-    """
-    n, dim = conn.shape[0], X.shape[1]
-    signed, cent = out if out is not None else (np.empty(n), np.empty((n, dim)))
-    if cell_type == "polygon" or cell_type not in _COLUMN_GEOMETRY:
-        signed[:], cent[:] = _block_geometry(cell_type, X[conn])
-        return signed, cent
-    Xt = [np.ascontiguousarray(X[:, i]) for i in range(dim)]
-    for lo in range(0, n, _CHUNK):
-        part = conn[lo:lo + _CHUNK]
-        # P[j][i]: coordinate i of corner j, each of shape (chunk,)
-        P = [[x[part[:, j]] for x in Xt] for j in range(conn.shape[1])]
-        s, c = _COLUMN_GEOMETRY[cell_type](P)
-        signed[lo:lo + _CHUNK] = s
-        for i in range(dim):
-            cent[lo:lo + _CHUNK, i] = c[i]
-    return signed, cent
-
-
-def _sub(a: list, b: list) -> list:
-    return [x - y for x, y in zip(a, b)]
-
-
-def _triple(a: list, b: list, c: list) -> np.ndarray:
-    """a . (b x c) for 3-vectors given as component lists (the cofactor order of :func:`_det`)."""
-    return (a[0] * (b[1] * c[2] - b[2] * c[1])
-            - a[1] * (b[0] * c[2] - b[2] * c[0])
-            + a[2] * (b[0] * c[1] - b[1] * c[0]))
-
-
-def _corner_mean(P: list) -> list:
-    """Per coordinate, the mean of the corners (summed in corner order)."""
-    out = []
-    for i in range(len(P[0])):
-        total = P[0][i] + P[1][i]
-        for j in range(2, len(P)):
-            total += P[j][i]
-        out.append(total / len(P))
-    return out
-
-
-def _simplex_columns(P: list):
-    """Triangles or tetrahedra: signed measure and centroid (as :func:`_simplex`)."""
-    p0 = P[0]
-    if len(P) == 3:
-        a, b = _sub(P[1], p0), _sub(P[2], p0)
-        return 0.5 * (a[0] * b[1] - a[1] * b[0]), _corner_mean(P)
-    a, b, c = _sub(P[1], p0), _sub(P[2], p0), _sub(P[3], p0)
-    return _triple(a, b, c) / 6.0, _corner_mean(P)
-
-
-def _quad_columns(P: list):
-    """Bilinear quads in closed form.
-
-    With x = m + A p + B q + D p q on p, q in [-1/2, 1/2] (m the corner mean), det J is
-    linear in p and q, so the area is det[A, B] exactly and the first moment is
-    (A (A x D) + B (D x B)) / 12.
-    """
-    x0, x1, x2, x3 = P
-    A = [0.5 * ((x1[i] - x0[i]) + (x2[i] - x3[i])) for i in range(2)]
-    B = [0.5 * ((x3[i] - x0[i]) + (x2[i] - x1[i])) for i in range(2)]
-    D = [(x2[i] - x3[i]) - (x1[i] - x0[i]) for i in range(2)]
-    area = A[0] * B[1] - A[1] * B[0]
-    ad = A[0] * D[1] - A[1] * D[0]
-    db = D[0] * B[1] - D[1] * B[0]
-    m = _corner_mean(P)
-    with np.errstate(invalid="ignore", divide="ignore"):
-        scale = np.where(area != 0, 1.0 / (12.0 * np.where(area == 0, 1.0, area)), 0.0)
-    return area, [m[i] + (A[i] * ad + B[i] * db) * scale for i in range(2)]
-
-
-# Gauss points of the 2-point rule per direction about the cell centre, p in [-1/2, 1/2]
-_GC = 0.5 / np.sqrt(3.0)
-
-
-def _hex_columns(P: list):
-    """Hexahedra (and pyramids as hexahedra with the top collapsed to the apex).
-
-    The trilinear map about the centre: x = m + A p + B q + C r + D p q + E q r + F p r + G p q r
-    on p, q, r in [-1/2, 1/2]. Where D, E, F, G are negligible (:data:`_AFFINE`) the cell is a
-    parallelepiped: volume det[A, B, C], centroid the corner mean. Elsewhere det J and x det J
-    are integrated with the 2-point Gauss rule per direction, which is exact for them.
-    """
-    x0, x1, x2, x3, x4, x5, x6, x7 = P
-    r3 = range(3)
-    u0, u1, u2, u3 = _sub(x1, x0), _sub(x2, x3), _sub(x5, x4), _sub(x6, x7)  # edges along u
-    A = [0.25 * ((u0[i] + u1[i]) + (u2[i] + u3[i])) for i in r3]
-    B = [0.25 * (((x3[i] - x0[i]) + (x2[i] - x1[i])) + ((x7[i] - x4[i]) + (x6[i] - x5[i]))) for i in r3]
-    C = [0.25 * (((x4[i] - x0[i]) + (x5[i] - x1[i])) + ((x6[i] - x2[i]) + (x7[i] - x3[i]))) for i in r3]
-    d = [u1[i] - u0[i] for i in r3]  # u-edges at v = 1 minus at v = 0
-    f = [u2[i] - u0[i] for i in r3]  # at w = 1 minus at w = 0
-    e = [(x7[i] - x4[i]) - (x3[i] - x0[i]) for i in r3]  # v-edges at w = 1 minus at w = 0
-    G = [(u3[i] - u2[i]) - d[i] for i in r3]
-    volume = _triple(A, B, C)
-    m = _corner_mean(P)
-    nonaffine = sum(np.abs(v[i]) for v in (d, e, f, G) for i in r3)
-    size = sum(np.abs(v[i]) for v in (A, B, C) for i in r3)
-    bent = np.flatnonzero(nonaffine * size * size > _AFFINE * np.abs(volume))
-    if bent.size:
-        Ab, Bb, Cb, Gb = ([v[i][bent] for i in r3] for v in (A, B, C, G))
-        D = [d[i][bent] + 0.5 * Gb[i] for i in r3]
-        E = [e[i][bent] + 0.5 * Gb[i] for i in r3]
-        F = [f[i][bent] + 0.5 * Gb[i] for i in r3]
-        total = np.zeros(bent.size)
-        moment = [np.zeros(bent.size) for _ in r3]
-        for p in (-_GC, _GC):
-            for q in (-_GC, _GC):
-                for r in (-_GC, _GC):
-                    Ju = [Ab[i] + q * D[i] + r * F[i] + (q * r) * Gb[i] for i in r3]
-                    Jv = [Bb[i] + p * D[i] + r * E[i] + (p * r) * Gb[i] for i in r3]
-                    Jw = [Cb[i] + p * F[i] + q * E[i] + (p * q) * Gb[i] for i in r3]
-                    det = _triple(Ju, Jv, Jw)
-                    total += det
-                    for i in r3:
-                        moment[i] += det * (p * Ab[i] + q * Bb[i] + r * Cb[i] + (p * q) * D[i] + (q * r) * E[i]
-                                            + (p * r) * F[i] + (p * q * r) * Gb[i])
-        total *= 0.125
-        volume[bent] = total
-        with np.errstate(invalid="ignore", divide="ignore"):
-            scale = np.where(total != 0, 0.125 / np.where(total == 0, 1.0, total), 0.0)
-        for i in r3:
-            m[i][bent] += moment[i] * scale
-    return volume, m
-
-
-def _wedge_columns(P: list):
-    """Wedges: those whose three vertical edges are equal vectors (to :data:`_AFFINE`) by the
-    triple product, volume det[a, b, c] / 2 at the reference centre, centroid the corner mean;
-    the others by the Gauss rule of :func:`_block_geometry`."""
-    x0, x1, x2, x3, x4, x5 = P
-    r3 = range(3)
-    a, b = _sub(x1, x0), _sub(x2, x0)
-    c0, c1, c2 = _sub(x3, x0), _sub(x4, x1), _sub(x5, x2)  # vertical edges
-    da = [c1[i] - c0[i] for i in r3]
-    db = [c2[i] - c0[i] for i in r3]
-    # the Jacobian at the reference centroid (1/3, 1/3, 1/2): exact for the affine part
-    Jc = ([a[i] + 0.5 * da[i] for i in r3], [b[i] + 0.5 * db[i] for i in r3],
-          [(c0[i] + c1[i] + c2[i]) / 3.0 for i in r3])
-    # VTK orders a wedge's base with its normal away from the top: the reference map is left-handed
-    volume = -0.5 * _triple(*Jc)
-    m = _corner_mean(P)
-    nonaffine = sum(np.abs(v[i]) for v in (da, db) for i in r3)
-    size = sum(np.abs(v[i]) for v in Jc for i in r3)
-    bent = np.flatnonzero(nonaffine * size * size > _AFFINE * np.abs(volume))
-    if bent.size:
-        # about the corner mean: the Gauss sums then lose no digits to a far origin
-        X = np.stack([np.stack([x[i][bent] - m[i][bent] for i in r3], axis=1) for x in P], axis=1)
-        s, cent = _block_geometry("wedge", X)
-        volume[bent] = s
-        for i in r3:
-            m[i][bent] += cent[:, i]
-    return volume, m
-
-
-def _pyramid_columns(P: list):
-    """Pyramids as hexahedra whose four top corners meet at the apex (see :func:`_block_geometry`)."""
-    return _hex_columns(P[:4] + [P[4]] * 4)
-
-
-_COLUMN_GEOMETRY = {"triangle": _simplex_columns, "tetra": _simplex_columns, "quad": _quad_columns,
-                    "hexahedron": _hex_columns, "wedge": _wedge_columns, "pyramid": _pyramid_columns}

@@ -7,9 +7,9 @@ import warnings
 
 import numpy as np
 
-from .errors import (FieldNotFoundError, InputError, InputFileNotFound, MeshWarning, PhasegaugeWarning,
-                     SeriesWarning, SkippedStepWarning, collapse_warnings)
-from .io import Series
+from ..errors import (FieldNotFoundError, InputError, InputFileNotFound, MeshWarning, PhasegaugeWarning,
+                      SeriesWarning, SkippedStepWarning, collapse_warnings)
+from . import Series
 
 #: errors of one step's file: the step is reported as unreadable and the others are described
 _STEP_ERRORS = (InputError, FieldNotFoundError, InputFileNotFound)

@@ -1,0 +1,204 @@
+"""Grouping equal rows of small integer tables (faces, edges, corner sets) without hashing."""
+
+from __future__ import annotations
+
+import sys
+
+import numpy as np
+
+#: cells (or rows) per chunk where work goes column by column: the temporaries stay in cache
+CHUNK = 1 << 15
+
+
+def grid_face_ids(v: list, shapes: list, offsets: np.ndarray) -> np.ndarray | None:
+    """Numbers of quad faces from their corners' grid positions ``v[axis][corner]`` (each (n,)).
+
+    None when a face does not lie in one grid plane on the four corners of one grid square.
+    """
+    n = v[0][0].size
+    ids = np.full(n, -1, dtype=np.int64)
+    for axis in range(3):
+        a = v[axis]
+        flat = (a[0] == a[1]) & (a[0] == a[2]) & (a[0] == a[3])
+        if not flat.any():
+            continue
+        whole = bool(flat.all())  # usually: a generator orders every cell's corners alike
+        if whole and np.any(ids >= 0) or not whole and np.any(ids[flat] >= 0):
+            return None  # flat along two axes: a degenerate face
+        def pick(x, flat=flat, whole=whole):
+            return x if whole else x[flat]
+
+        index = [None, None, None]
+        index[axis] = pick(a[0])
+        seen = np.zeros(index[axis].size, dtype=np.uint8)
+        codes = [np.zeros_like(seen) for _ in range(4)]
+        for bit, other in ((0, (axis + 1) % 3), (1, (axis + 2) % 3)):
+            b = [pick(x) for x in v[other]]
+            low = np.minimum(np.minimum(b[0], b[1]), np.minimum(b[2], b[3]))
+            high = np.maximum(np.maximum(b[0], b[1]), np.maximum(b[2], b[3]))
+            if np.any(high - low != 1):
+                return None
+            index[other] = low
+            for k in range(4):
+                codes[k] |= (b[k] != low).view(np.uint8) << np.uint8(bit)
+        # the four corners are the four corners of the square, each once
+        for code in codes:
+            seen |= np.left_shift(np.uint8(1), code)
+        if np.any(seen != 15):
+            return None
+        number = offsets[axis] + np.ravel_multi_index(tuple(index), shapes[axis])
+        if whole:
+            ids = number
+        else:
+            ids[flat] = number
+    if np.any(ids < 0):
+        return None
+    return ids
+
+
+def unique_ints(values: np.ndarray) -> np.ndarray:
+    """Sorted distinct values of a 1D integer array.
+
+    By sorting: ``np.unique`` without ``return_*`` options takes a hash path
+    that is many times slower on millions of values (numpy 2.3-2.4).
+    """
+    s = np.sort(np.ravel(values))
+    if s.size < 2:
+        return s
+    return s[np.concatenate([[True], s[1:] != s[:-1]])]
+
+
+def index_dtype(n: int):
+    """int32 for indices (or index arithmetic) below ``n`` when they fit, else int64."""
+    return np.int32 if n < 2 ** 31 - 1 else np.int64
+
+
+# comparators of the smallest sorting networks (Knuth, TAOCP vol. 3, 5.3.4)
+_NETWORKS = {2: ((0, 1),), 3: ((1, 2), (0, 2), (0, 1)), 4: ((0, 1), (2, 3), (0, 2), (1, 3), (1, 2))}
+
+
+def sort_columns(columns: list) -> list:
+    """Sort k <= 4 equal-length arrays elementwise (row i sorted across the arrays), by a network."""
+    c = list(columns)
+    for a, b in _NETWORKS.get(len(c), ()):
+        lo = np.minimum(c[a], c[b])
+        c[b] = np.maximum(c[a], c[b])
+        c[a] = lo
+    return c
+
+
+def sort_small_rows(rows: np.ndarray) -> np.ndarray:
+    """Sort each row of an (n, k) array; a sorting network for k <= 4 (fast for many rows)."""
+    if rows.shape[1] not in _NETWORKS:
+        return np.sort(rows, axis=1)
+    return np.stack(sort_columns([rows[:, j] for j in range(rows.shape[1])]), axis=1)
+
+
+def all_distinct(values: np.ndarray, n: int) -> bool:
+    """True when ``values`` (integers in 0 .. n - 1) are all different (a mask, no sort)."""
+    seen = np.zeros(n, dtype=bool)
+    seen[values] = True
+    return int(np.count_nonzero(seen)) == values.size
+
+
+def _bits(n: int) -> int:
+    """Bits needed for the integers 0 .. n - 1."""
+    return max(int(n - 1).bit_length(), 0)
+
+
+def _sort_order(key: np.ndarray, key_bits: int) -> tuple[np.ndarray, np.ndarray]:
+    """A permutation sorting ``key`` (non-negative int64 below ``2**key_bits``), ties by position.
+
+    The position is packed below the key where both fit in 63 bits, so one plain
+    ``np.sort`` (vectorised) replaces ``np.argsort`` (several times slower on millions of
+    keys). Returns ``(order, sorted_key)``; ``key`` is overwritten (it becomes ``sorted_key``).
+    """
+    n = key.size
+    shift = max(_bits(n), 1)
+    if key_bits + shift > 63:
+        order = np.argsort(key, kind="stable")
+        return order, key[order]
+    packed = key  # packed in place: the caller hands the key over
+    packed <<= np.int64(shift)
+    for start in range(0, n, CHUNK):  # positions below the key (small temporaries)
+        packed[start:start + CHUNK] |= np.arange(start, min(start + CHUNK, n), dtype=np.int64)
+    packed.sort()
+    if shift < 31:  # positions fit in the low 32-bit half of each entry
+        low = packed.view(np.int32)[0 if sys.byteorder == "little" else 1::2]
+        order = low & np.int32((1 << shift) - 1)
+    else:
+        order = packed & np.int64((1 << shift) - 1)
+    packed >>= np.int64(shift)
+    return order, packed
+
+
+def group_columns(columns: list) -> tuple[np.ndarray, np.ndarray]:
+    """Group equal rows of the table whose columns are ``columns`` (equal-length int arrays).
+
+    Returns ``order``, a permutation that sorts the rows lexicographically (so
+    equal rows are next to each other), and ``starts``, the first position of
+    each group of equal rows in that order. Exact: the rows are sorted by
+    their own values, packed in 63-bit digits (least significant digit first,
+    each pass stable), never by a hash.
+
+    References
+    ----------
+    Least-significant-digit radix sorting with a stable sort per digit: Knuth, D. E.
+    (1998), The Art of Computer Programming, vol. 3, 2nd ed., section 5.2.5.
+    """
+    n = columns[0].size if columns else 0
+    if n == 0:
+        return np.zeros(0, dtype=np.int64), np.zeros(0, dtype=np.int64)
+    lows = [int(c.min()) for c in columns]
+    widths = [_bits(int(c.max()) - lo + 1) for c, lo in zip(columns, lows)]
+    room = 63 - max(_bits(n), 1)
+    # digits: runs of neighbouring columns whose bits fit in one pass, last column first
+    digits, current, used = [], [], 0
+    for j in reversed(range(len(columns))):
+        if widths[j] == 0:
+            continue
+        if current and used + widths[j] > room:
+            digits.append(current)
+            current, used = [], 0
+        current.append(j)
+        used += widths[j]
+    if current:
+        digits.append(current)
+    if not digits:  # every row is the same
+        return np.arange(n, dtype=np.int64), np.zeros(1, dtype=np.int64)
+    order, ranks = None, []  # ranks: per digit done, the rank of each row's digit value, in order
+    index = index_dtype(n)
+    for digit in digits:
+        key, shift = np.empty(n, dtype=np.int64), 0
+        for position, j in enumerate(digit):  # least significant column first
+            for lo in range(0, n, CHUNK):  # in chunks: no full-length int64 temporaries
+                rows = slice(lo, lo + CHUNK)
+                part = (columns[j][rows] if order is None else np.take(columns[j], order[rows])).astype(np.int64)
+                if lows[j]:
+                    part -= lows[j]
+                if shift:
+                    part <<= np.int64(shift)
+                if position > 0:  # later columns are or-ed into the key the first one set
+                    key[rows] |= part
+                else:
+                    key[rows] = part
+            shift += widths[j]
+        del part
+        step, ordered = _sort_order(key, shift)
+        del key
+        ranks = [r[step] for r in ranks]
+        order = step if order is None else order[step]
+        del step
+        if digit is not digits[-1]:
+            rank = np.zeros(n, dtype=index)
+            np.cumsum(ordered[1:] != ordered[:-1], out=rank[1:])
+            ranks.append(rank)
+            del ordered, rank
+    # rows differ where any digit differs
+    new = np.zeros(n, dtype=bool)
+    new[0] = True
+    np.not_equal(ordered[1:], ordered[:-1], out=new[1:])
+    del ordered
+    for r in ranks:
+        new[1:] |= r[1:] != r[:-1]
+    return order, np.flatnonzero(new)
