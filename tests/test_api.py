@@ -8,7 +8,10 @@ MODULES = ["phasegauge", "phasegauge.io", "phasegauge.report", "phasegauge.sampl
            "phasegauge.analysis.interface", "phasegauge.analysis.droplets", "phasegauge.analysis.tracking",
            "phasegauge.analysis.mixing", "phasegauge.analysis.conservation", "phasegauge.analysis.compare",
            "phasegauge.analysis.references", "phasegauge.errors", "phasegauge.model.mesh", "phasegauge.model.indicator",
-           "phasegauge.run.measure", "phasegauge.recipes", "phasegauge.run.compare", "phasegauge.meshgen"]
+           "phasegauge.run.measure", "phasegauge.recipes", "phasegauge.run.compare", "phasegauge.meshgen",
+           "phasegauge.run.options", "phasegauge.run.step", "phasegauge.run.cache", "phasegauge.run.executors",
+           "phasegauge.run.assemble", "phasegauge.model.fields", "phasegauge.model.axes",
+           "phasegauge.model.outline"]
 
 
 @pytest.mark.parametrize("name", MODULES)

@@ -171,7 +171,7 @@ def test_boundary_flux_with_cell_data_and_errors():
     out = open_boundary_flux(mesh, velocity, np.full(mesh.n_cells, 0.5))
     assert out["boundary_phase_outflow"] == pytest.approx(0.0, abs=1e-12)
     assert out["open_boundary_area"] == pytest.approx(2.0)
-    with pytest.raises(OptionError, match="velocity must be vectors"):
+    with pytest.raises(OptionError, match="velocity must have shape"):
         open_boundary_flux(mesh, np.zeros(mesh.n_cells))
     with pytest.raises(OptionError, match="tolerance must be a number"):
         open_boundary_flux(mesh, velocity, tolerance=-1)

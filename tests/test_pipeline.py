@@ -256,21 +256,19 @@ def test_segregation_scale_option(tmp_path):
 
 
 def test_forked_workers_reuse_a_mesh_this_process_built(tmp_path):
-    # forks start before the first step and build their own mesh caches; a mesh this process
-    # built in an earlier run is set aside before they fork, so they find it with its caches
-    from phasegauge.io._meshio_adapter import _MESH_POOL
-
-    from phasegauge.io import Series
+    # forks start before the first step and build their own mesh caches; a mesh an earlier run
+    # kept in the pool it was given is inherited by the forks of a later run with its caches
+    from phasegauge.io import MeshPool, Series
 
     listing = _moving_disc_series(str(tmp_path), steps=3)
-    _MESH_POOL.clear()
-    measure(listing, "alpha", analyses=("conservation",))  # serial: the mesh stays open here
-    measure(listing, "alpha", workers=2, analyses=("conservation",))
-    signature = Series(listing).read(0).mesh.signature
-    pooled = [m for m in _MESH_POOL if m.signature == signature]
-    assert len(pooled) == 1
+    pool = MeshPool()
+    measure(listing, "alpha", analyses=("conservation",), mesh_pool=pool)  # serial: the mesh is kept
+    (kept,) = list(pool)
     # the pooled mesh carries the measures the earlier run computed (nothing to rebuild in a fork)
-    assert "cell_measures" in vars(pooled[0])
+    assert "cell_measures" in vars(kept)
+    measure(listing, "alpha", workers=2, analyses=("conservation",), mesh_pool=pool)
+    assert list(pool) == [kept]  # this process's steps of the second run reused it too
+    assert kept.signature == Series(listing).read(0).mesh.signature
 
 
 def test_wrong_field_stops_a_parallel_run_after_the_first_step(tmp_path):

@@ -384,7 +384,7 @@ def test_long_series_skips_a_truncated_step_and_records_it(tmp_path, bad):
 
 
 def test_failure_inside_names_the_step_exit_1(tmp_path, monkeypatch):
-    import phasegauge.run.measure as pipeline
+    import phasegauge.run.step as pipeline
 
     folder = _folder(tmp_path, "run", count=3)
     real = pipeline.analyse_step

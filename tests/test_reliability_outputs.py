@@ -130,24 +130,24 @@ def test_failed_overwrite_keeps_the_earlier_outputs(tmp_path):
 
 def test_interrupted_overwrite_is_finished_by_resume(tmp_path, monkeypatch):
     from phasegauge import measure
-    import phasegauge.run.measure as pipeline
+    from phasegauge.run.step import StepRunner
 
     listing = _series(str(tmp_path / "in"), steps=4)
     out = tmp_path / "o"
     measure(listing, "alpha", out=out, analyses=("conservation",), write_contours=False)
-    real = pipeline.run_step
+    real = StepRunner.run
 
-    def interrupted(path, index, options, **kw):
+    def interrupted(runner, index):
         if index == 2:
             raise KeyboardInterrupt
-        return real(path, index, options, **kw)
+        return real(runner, index)
 
-    monkeypatch.setattr(pipeline, "run_step", interrupted)
+    monkeypatch.setattr(StepRunner, "run", interrupted)
     with pytest.raises(KeyboardInterrupt):
         measure(listing, "alpha", out=out, overwrite=True, analyses=("conservation",), write_contours=False)
     # an interrupt keeps everything for --resume; the earlier run waits aside until this one finishes
     assert (out / _files.PREVIOUS_RUN / "steps.csv").exists()
-    monkeypatch.setattr(pipeline, "run_step", real)
+    monkeypatch.setattr(StepRunner, "run", real)
     result = measure(listing, "alpha", out=out, resume=True, analyses=("conservation",), write_contours=False)
     assert sum(r.reused for r in result.results) == 2
     assert not (out / _files.PREVIOUS_RUN).exists() and (out / "steps.csv").exists()

@@ -134,7 +134,7 @@ def _box(text):
     return tuple(pairs)
 
 
-_measure_options = [
+_measure_options = (
     click.option("--field", "-f", required=True, help="Field mapped to the phase indicator c."),
     click.option("--range", "value_range", default="0,1", show_default=True,
                  help="Field values mapped to c = 0 and c = 1, as LO,HI (an order parameter: -1,1)."),
@@ -143,7 +143,7 @@ _measure_options = [
     click.option("--level", type=float, default=0.5, show_default=True,
                  help="Indicator level of the interface and of droplets."),
     click.option("--velocity", default=None, help="Velocity field (droplet velocities, tracking, flow-weighted sections)."),
-]
+)
 
 
 def _add(options):

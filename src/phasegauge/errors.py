@@ -35,6 +35,7 @@ __all__ = [
     "SeriesWarning",
     "MeshWarning",
     "collapse_warnings",
+    "short_text",
 ]
 
 
@@ -222,3 +223,12 @@ def collapse_warnings(records) -> list:
             text += f" (and {len(more)} more step{'s' if len(more) > 1 else ''})"
         out.append((category, text))
     return out
+
+
+def short_text(exc: BaseException, limit: int = 120) -> str:
+    """An exception's message on one line, cut to ``limit`` characters (its class name when empty).
+
+    For messages that quote a failure from another library inside a phasegauge error.
+    """
+    text = " ".join(str(exc).split()) or type(exc).__name__
+    return text if len(text) <= limit else text[:limit - 3] + "..."

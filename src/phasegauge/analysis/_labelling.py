@@ -34,7 +34,6 @@ taken from a per-mesh table (``_neighbour_table``: index arithmetic on a regular
 
 from __future__ import annotations
 
-import weakref
 from dataclasses import dataclass, field
 
 import numpy as np
@@ -44,11 +43,11 @@ from scipy.sparse import csgraph
 from scipy.spatial import cKDTree
 
 from ..errors import OptionError
+from ..model.axes import AXIS_INDEX, AXIS_NAMES
+from ..model.fields import cell_values, vector_values
 from ..model.mesh import Mesh
 
 __all__ = ["DropletLabels", "label_droplets", "TABLE_COLUMNS"]
-
-AXIS_NAMES = ("x", "y", "z")
 
 #: columns of :attr:`DropletLabels.table`, in order
 TABLE_COLUMNS = (
@@ -57,17 +56,6 @@ TABLE_COLUMNS = (
     + [f"bbox_{end}_{a}" for end in ("min", "max") for a in AXIS_NAMES]
     + ["velocity_x", "velocity_y", "velocity_z", "under_resolved", "spanning"]
 )
-
-# mesh-only work (periodic face pairs, corner boxes), cached per mesh object
-_MESH_CACHE: "weakref.WeakKeyDictionary[Mesh, dict]" = weakref.WeakKeyDictionary()
-
-
-def _cache(mesh: Mesh) -> dict:
-    try:
-        return _MESH_CACHE.setdefault(mesh, {})
-    except TypeError:  # an object that cannot be weakly referenced: no cache
-        return {}
-
 
 @dataclass(frozen=True)
 class DropletLabels:
@@ -116,7 +104,7 @@ def _normalize_periodic(mesh: Mesh, periodic) -> tuple:
         if key not in AXIS_NAMES:
             raise OptionError(f"periodic axes must be among 'x', 'y', 'z', found {name!r}",
                               fix="name the periodic axes, e.g. periodic=('x',)")
-        axis = AXIS_NAMES.index(key)
+        axis = AXIS_INDEX[key]
         if axis not in plane:
             raise OptionError(
                 f"periodic axis '{key}' is not an axis of this {mesh.dimension}D mesh "
@@ -128,26 +116,16 @@ def _normalize_periodic(mesh: Mesh, periodic) -> tuple:
     return tuple(names), tuple(index)
 
 
-def _cell_array(values, mesh: Mesh, what: str, *, components=False) -> np.ndarray:
-    a = np.asarray(values, dtype=np.float64)
-    if components:
-        if a.ndim != 2 or a.shape[0] != mesh.n_cells or a.shape[1] not in (mesh.dimension, 3):
-            raise OptionError(
-                f"{what} must have shape ({mesh.n_cells}, {mesh.dimension}) or ({mesh.n_cells}, 3), "
-                f"found {a.shape}", fix=f"give {what} as cell values (convert point data first)")
-    elif a.shape != (mesh.n_cells,):
-        raise OptionError(f"{what} must have shape ({mesh.n_cells},), found {a.shape}",
-                          fix=f"give {what} as one value per cell (convert point data first)")
-    return a
-
-
 # --------------------------------------------------------------------------- geometry caches
 def _periodic_pairs(mesh: Mesh, axis: int):
-    """Cell pairs across the periodic boundary of ``axis``: (low-side cell, high-side cell), period."""
-    store = _cache(mesh)
-    key = ("periodic_pairs", axis)
-    if key in store:
-        return store[key]
+    """Cell pairs across the periodic boundary of ``axis``: (low-side cell, high-side cell), period.
+
+    Cached on the mesh (``mesh.memo``).
+    """
+    return mesh.memo(("droplet_periodic_pairs", int(axis)), lambda: _find_periodic_pairs(mesh, axis))
+
+
+def _find_periodic_pairs(mesh: Mesh, axis: int):
     corners, owner = mesh.boundary_faces
     X = mesh.coordinates
     valid = corners >= 0
@@ -167,8 +145,7 @@ def _periodic_pairs(mesh: Mesh, axis: int):
         lo_cells = owner[on_lo]
         accept = dist <= 0.5 * mesh.cell_sizes[lo_cells]
         pairs = np.stack([lo_cells[accept], owner[on_hi][j[accept]]], axis=1)
-    store[key] = (pairs, lo, period)
-    return store[key]
+    return pairs, lo, period
 
 
 #: face pairs placed in the neighbour table per pass
@@ -181,9 +158,10 @@ def _neighbour_table(mesh: Mesh) -> np.ndarray:
     From the cell array's index arithmetic on regular grids (no face grouping needed),
     else from ``mesh.face_pairs`` (each pair once as (a, b) in row a, once as (b, a) in row b).
     """
-    store = _cache(mesh)
-    if "neighbours" in store:
-        return store["neighbours"]
+    return mesh.memo("droplet_neighbours", lambda: _build_neighbour_table(mesh))
+
+
+def _build_neighbour_table(mesh: Mesh) -> np.ndarray:
     n = mesh.n_cells
     dtype = np.int32 if n < np.iinfo(np.int32).max else np.int64
     grid = mesh.regular_grid
@@ -224,7 +202,6 @@ def _neighbour_table(mesh: Mesh) -> np.ndarray:
             order = by_b[lo:lo + _PAIR_CHUNK]
             rows = b[order].astype(np.intp)
             flat[rows * width + rank + off_b[rows]] = a[order]
-    store["neighbours"] = table
     return table
 
 
@@ -676,8 +653,8 @@ def label_droplets(mesh: Mesh, c_cell, *, level: float = 0.5, connectivity: str 
         raise OptionError("interface_cells and interface_sizes must be given together",
                           fix="give both contour arrays or neither")
     names, axes = _normalize_periodic(mesh, periodic)
-    c = _cell_array(c_cell, mesh, "c_cell")
-    vel = None if velocity is None else _cell_array(velocity, mesh, "velocity", components=True)
+    c = cell_values(mesh, c_cell, "c_cell")
+    vel = None if velocity is None else vector_values(mesh, velocity, "velocity", "cell")[0]
     if interface_cells is not None:
         icells = np.asarray(interface_cells)
         isizes = np.asarray(interface_sizes, dtype=np.float64)

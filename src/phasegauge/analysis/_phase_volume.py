@@ -6,10 +6,9 @@ import numpy as np
 import pandas as pd
 
 from ..errors import OptionError
+from ..model.fields import cell_values, field_location, vector_values
 from ..model.indicator import Indicator
 from ..model.mesh import Mesh
-from ._cross_sections import field_location
-from ._segregation import cell_values
 from ._sums import dot
 
 
@@ -219,12 +218,9 @@ def _cycle_quads(X: np.ndarray, quad: np.ndarray) -> np.ndarray:
 
 
 def _velocity_vectors(mesh: Mesh, velocity, location) -> tuple[np.ndarray, str]:
-    array, location = field_location(mesh, velocity, "velocity", location)
-    dim = mesh.dimension
-    if array.ndim != 2 or array.shape[1] not in (2, 3) or (dim == 3 and array.shape[1] != 3):
-        raise OptionError(f"velocity must be vectors of shape (n, {dim}) or (n, 3), found {array.shape}",
-                          fix="pass the velocity field of the step")
-    if array.shape[1] == 3 and dim == 2:
+    """Velocity vectors in the analysis space: (n, dimension), on points or cells."""
+    array, location = vector_values(mesh, velocity, "velocity", location)
+    if array.shape[1] == 3 and mesh.dimension == 2:
         array = array[:, list(mesh.plane_axes)]
     return array, location
 

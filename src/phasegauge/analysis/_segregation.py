@@ -6,7 +6,8 @@ import numpy as np
 import pandas as pd
 
 from ..errors import OptionError
-from ..model.indicator import Indicator
+from ..model.axes import AXIS_NAMES
+from ..model.fields import cell_values
 from ..model.mesh import Mesh
 from ._simplices import box_fractions
 from ._sums import dot
@@ -16,16 +17,6 @@ __all__ = ["mixing_metrics", "mixing_length", "segregation_scale", "MIXED_RANGE"
 
 #: c strictly between these counts as mixed in ``mixed_volume_fraction``
 MIXED_RANGE = (0.05, 0.95)
-
-
-def cell_values(mesh: Mesh, c) -> np.ndarray:
-    """The indicator on cells: ``c.cell`` of an Indicator, or an array of shape (n_cells,)."""
-    values = c.cell if isinstance(c, Indicator) else c
-    values = np.asarray(values, dtype=np.float64)
-    if values.shape != (mesh.n_cells,):
-        raise OptionError(f"c must have one value per cell ({mesh.n_cells}), found shape {values.shape}",
-                          fix="pass indicator.cell, or the Indicator itself")
-    return values
 
 
 def normalize_box(mesh: Mesh, box) -> np.ndarray:
@@ -48,7 +39,7 @@ def normalize_box(mesh: Mesh, box) -> np.ndarray:
         lo, hi = rows[axis]
         out[k] = (-np.inf if lo is None else float(lo), np.inf if hi is None else float(hi))
         if not out[k, 0] < out[k, 1]:
-            raise OptionError(f"box bounds along {'xyz'[axis]} must increase, found {rows[axis]}",
+            raise OptionError(f"box bounds along {AXIS_NAMES[axis]} must increase, found {rows[axis]}",
                               fix="give (lower, upper)")
     return out
 

@@ -32,8 +32,9 @@ from scipy.sparse import csgraph
 from scipy.spatial import cKDTree
 
 from ..errors import OptionError
+from ..model.axes import AXIS_NAMES
 from ..model.mesh import Mesh
-from ._labelling import AXIS_NAMES, DropletLabels, _normalize_periodic
+from ._labelling import DropletLabels, _normalize_periodic
 
 __all__ = ["DropletTracker", "track_droplets", "EVENT_COLUMNS", "EVENT_KINDS"]
 
@@ -149,14 +150,43 @@ class DropletTracker:
                               fix="pass the table made with these labels")
         weights = mesh.cell_measures if weights is None else np.asarray(weights, dtype=np.float64)
         core = np.flatnonzero(labels >= 0)
-        return self._add_cells(step, time, mesh, table, core, labels[core], weights[core],
-                               velocity_known=velocity_known)
+        return self.add_cells(step, time, mesh, table, core, labels[core], weights[core],
+                              velocity_known=velocity_known)
 
-    def _add_cells(self, step, time, mesh: Mesh, table, cells, labels, weights, *, velocity_known=None):
-        """:meth:`add` from the labelled cells only (checked, sorted cell indices; their labels and weights).
+    def add_cells(self, step, time, mesh, table, cells, labels, weights, *, velocity_known=None):
+        """Add the next step from its labelled cells only (no array over every cell).
 
-        The pipeline keeps a step's labels in this form; it saves building and
-        scanning arrays over every cell.
+        Parameters
+        ----------
+        step : int
+            Step index (steps must come in increasing order).
+        time : float
+        mesh : Mesh or MeshOutline
+            The step's mesh, or its outline with cell centroids
+            (:meth:`phasegauge.model.outline.MeshOutline.of` with ``centroids=True``): tracking
+            uses ``signature``, ``n_cells``, ``dimension``, ``plane_axes``, ``bounds`` and
+            ``cell_centroids``.
+        table : pandas.DataFrame
+            The droplet table of :func:`label_droplets` (row i = droplet i).
+        cells : ndarray of shape (k,), int
+            The labelled cells, sorted increasing, within ``[0, mesh.n_cells)``.
+        labels : ndarray of shape (k,), int
+            Their droplet numbers (rows of ``table``).
+        weights : ndarray of shape (k,), float
+            Their ``c dV``, for the overlap.
+        velocity_known : bool, optional
+            As in :meth:`add`.
+
+        Returns
+        -------
+        ndarray of shape (n_droplets,), int
+            The track id of each droplet of this step.
+
+        Notes
+        -----
+        A run keeps each step's labels in this form, so the series-level tracking needs
+        neither the step's fields nor its whole mesh. The arrays are trusted as given
+        (:meth:`add` checks full label arrays first).
         """
         n_drop = len(table)
         if self._previous is not None and not step > self._previous["step"]:

@@ -36,10 +36,10 @@ from __future__ import annotations
 import numpy as np
 import pandas as pd
 
-from ..errors import InputError, OptionError
+from ..errors import OptionError
 
 __all__ = ["RISING_BUBBLE_CASE1", "RISING_BUBBLE_CASE1_SOURCE", "check_rising_bubble",
-           "check_against_table", "read_reference_table", "bubble_history", "CHECK_COLUMNS"]
+           "check_against_table", "check_reference_table", "bubble_history", "CHECK_COLUMNS"]
 
 #: columns of every check result
 CHECK_COLUMNS = ["quantity", "value", "time", "reference", "reference_low", "reference_high",
@@ -72,27 +72,27 @@ RISING_BUBBLE_CASE1.attrs["note"] = "reference values recalled from memory; see 
 _PREFIXES = ("min", "max", "time_of_min", "time_of_max")
 
 
-def read_reference_table(reference) -> pd.DataFrame:
-    """Read and check a reference table (a CSV path or a DataFrame).
+def check_reference_table(reference: pd.DataFrame) -> pd.DataFrame:
+    """Check a reference table and bring it to its full form (a copy; read a CSV file with
+    :func:`phasegauge.io.read_reference_table`).
+
+    Returns
+    -------
+    DataFrame
+        Lower-case columns ``quantity, time, value, tolerance, low, high, source`` (missing
+        optional columns filled: NaN, and '' for ``source``), numbers as float64.
 
     Raises
     ------
-    InputError
-        The file cannot be read.
     OptionError
-        Missing columns, non-numeric values, a negative tolerance, a band with
+        Not a table; missing columns, non-numeric values, a negative tolerance, a band with
         low > high, or a ``NAME`` row without a time.
     """
-    if isinstance(reference, pd.DataFrame):
-        table = reference.copy()
-        where = "reference table"
-    else:
-        where = str(reference)
-        try:
-            table = pd.read_csv(reference, skipinitialspace=True, comment="#")
-        except (OSError, pd.errors.ParserError, pd.errors.EmptyDataError, UnicodeDecodeError) as err:
-            raise InputError(f"cannot read the reference table: {err}", where=where,
-                             fix="give a CSV file with columns quantity, time, value, tolerance") from None
+    if not isinstance(reference, pd.DataFrame):
+        raise OptionError(f"a reference table must be a DataFrame, found {type(reference).__name__}",
+                          fix="read a CSV file with phasegauge.io.read_reference_table")
+    table = reference.copy()
+    where = str(reference.attrs.get("path", "reference table"))
     table.columns = [str(c).strip().lower() for c in table.columns]
     missing = [c for c in ("quantity", "value") if c not in table.columns]
     if missing:
@@ -161,9 +161,10 @@ def check_against_table(run: pd.DataFrame, reference) -> pd.DataFrame:
     run : DataFrame
         One row per output time with a ``time`` column and the columns the
         reference names (e.g. a steps table, or :func:`bubble_history`).
-    reference : str, path or DataFrame
+    reference : DataFrame
         The reference table (format in the module notes): columns
-        ``quantity, time, value, tolerance`` and optional ``low, high, source``.
+        ``quantity, time, value, tolerance`` and optional ``low, high, source``
+        (:func:`phasegauge.io.read_reference_table` reads one from a CSV file).
 
     Returns
     -------
@@ -176,12 +177,13 @@ def check_against_table(run: pd.DataFrame, reference) -> pd.DataFrame:
     Raises
     ------
     OptionError
-        A run without ``time``, or a reference naming a column the run lacks.
+        A run without ``time``, a reference that is not a valid table (see
+        :func:`check_reference_table`), or a reference naming a column the run lacks.
     """
     if not isinstance(run, pd.DataFrame) or "time" not in run.columns:
         raise OptionError("the run table needs a 'time' column",
                           fix="pass a table with one row per output time")
-    table = read_reference_table(reference)
+    table = check_reference_table(reference)
     t = run["time"].to_numpy(dtype=np.float64)
     rows = []
     for _, ref in table.iterrows():

@@ -13,6 +13,7 @@ from __future__ import annotations
 import os
 import tempfile
 from pathlib import Path
+from types import MappingProxyType
 
 import numpy as np
 
@@ -21,10 +22,10 @@ from ..errors import InputFileNotFound, OptionError, OutputError, UnreadableFile
 __all__ = ["write_contour", "read_contour", "CONTOUR_SUFFIXES"]
 
 #: file suffixes and the meshio format each is written in
-CONTOUR_SUFFIXES = {".vtu": "vtu", ".vtk": "vtk"}
+CONTOUR_SUFFIXES = MappingProxyType({".vtu": "vtu", ".vtk": "vtk"})
 
 
-_EMPTY = {
+_EMPTY = MappingProxyType({
     "vtu": ('<?xml version="1.0"?>\n'
             '<VTKFile type="UnstructuredGrid" version="0.1" byte_order="LittleEndian">\n'
             '<UnstructuredGrid>\n<Piece NumberOfPoints="0" NumberOfCells="0">\n'
@@ -36,7 +37,7 @@ _EMPTY = {
             '</Cells>\n</Piece>\n</UnstructuredGrid>\n</VTKFile>\n'),
     "vtk": ("# vtk DataFile Version 4.2\nempty contour\nASCII\nDATASET UNSTRUCTURED_GRID\n"
             "POINTS 0 double\nCELLS 0 0\nCELL_TYPES 0\n"),
-}
+})
 _EMPTY_MARKS = ('NumberOfPoints="0"', "POINTS 0 ")
 
 

@@ -1,9 +1,16 @@
-"""Reading one mesh file through meshio into the project's model.
+"""meshio behind the project's model: every use of meshio's readers, public or private, is here.
 
-meshio is the only reader. Two small additions are registered with it on first
-use: VTK pixel (8) and voxel (11) cells, which VTK's own writers produce when an
-image grid is saved as an unstructured grid; :mod:`phasegauge.model.mesh` turns them
-into quads and hexahedra.
+* :func:`read_with_meshio` reads one file with meshio's reader of a format (the
+  format modules :mod:`._vtk` and :mod:`._xdmf` register it), and says in the
+  user's terms what is wrong with a file meshio fails on;
+* :class:`XdmfTimeSeries` reads an XDMF temporal collection step by step;
+* :func:`mesh_and_fields` turns what meshio read into a :class:`Mesh` (a kept one
+  of a :class:`MeshPool` when the points and cells are the same) and fields.
+
+Two small additions are made to meshio's tables before it reads: VTK pixel (8)
+and voxel (11) cells, which VTK's own writers produce when an image grid is saved
+as an unstructured grid; :mod:`phasegauge.model.mesh` turns them into quads and
+hexahedra.
 """
 
 from __future__ import annotations
@@ -17,21 +24,19 @@ from dataclasses import dataclass, field
 import numpy as np
 
 from ..errors import (FieldShapeError, InputFileNotFound, MeshWarning, UnreadableFileError,
-                      UnsupportedMeshError)
+                      UnsupportedMeshError, short_text)
 from ..model.mesh import Mesh
 
-MESH_SUFFIXES = (".vtu", ".vtk", ".xdmf", ".xmf", ".vti", ".vtr", ".vts")
-#: VTK XML structured formats meshio does not read: read with VTK's own readers (through pyvista)
-STRUCTURED_SUFFIXES = (".vti", ".vtr", ".vts")
-_FORMATS = {".vtu": "vtu", ".vtk": "vtk", ".xdmf": "xdmf", ".xmf": "xdmf"}
-
-_registered = False
+__all__ = ["StepFields", "read_with_meshio", "XdmfTimeSeries", "mesh_and_fields", "step_fields",
+           "diagnose_read_failure", "hdf5_problem"]
 
 
-def _register_vtk_extras() -> None:
-    global _registered
-    if _registered:
-        return
+def ensure_vtk_extras() -> None:
+    """Teach meshio VTK's pixel (8) and voxel (11) cells (idempotent: it only adds missing entries).
+
+    VTK's own writers produce them when an image grid is saved as an unstructured grid;
+    :class:`phasegauge.model.mesh.Mesh` turns them into quads and hexahedra.
+    """
     import meshio._common as common
     import meshio._mesh as mesh_module
     import meshio._vtk_common as vtk_common
@@ -41,7 +46,6 @@ def _register_vtk_extras() -> None:
     for name, nodes, dim in (("pixel", 4, 2), ("voxel", 8, 3)):
         common.num_nodes_per_cell.setdefault(name, nodes)
         mesh_module.topological_dimension.setdefault(name, dim)
-    _registered = True
 
 
 @dataclass
@@ -64,112 +68,33 @@ class StepFields:
         return sorted(set(self.point_data) | set(self.cell_data))
 
 
-def read_meshio(path: str):
-    """Read a file with meshio, turning any failure into an :class:`UnreadableFileError`."""
-    import meshio
+def read_with_meshio(path: str, fmt: str, *, fallback=None):
+    """Read ``path`` with meshio's reader for ``fmt``, turning any failure into an :class:`UnreadableFileError`.
 
-    _register_vtk_extras()
-    if not os.path.exists(path):
-        raise InputFileNotFound("file not found", where=path,
-                                fix="check the path (quote globs so the shell does not expand them)")
-    if os.path.isdir(path):
-        raise UnreadableFileError("is a folder, not a mesh file", where=path,
-                                  fix="give the folder itself as the series path")
-    if os.path.getsize(path) == 0:
-        raise UnreadableFileError("the file is empty", where=path,
-                                  fix="the solver may have been stopped while writing; rewrite or remove the step")
-    suffix = os.path.splitext(path)[1].lower()
-    if suffix in STRUCTURED_SUFFIXES:
-        return _read_with_vtk(path)
-    fmt = _FORMATS.get(suffix)
-    if fmt is None:
-        raise UnreadableFileError("is not a .vtu, .vtk, .xdmf or .xmf file", where=path,
-                                  fix="convert the file to VTK or XDMF")
+    ``fallback(path)``, when given, is tried after meshio failed: a mesh, or None to report
+    meshio's failure.
+    """
+    ensure_vtk_extras()
     try:
         # the reader is called directly: meshio.read() ends the process on a read error
         with warnings.catch_warnings(), contextlib.redirect_stdout(io.StringIO()):
             warnings.simplefilter("ignore")
-            return meshio._helpers.reader_map[fmt](path)
+            return meshio_reader(fmt)(path)
     except MemoryError:
         raise
     except Exception as exc:  # meshio raises many kinds: say what is wrong with the file
-        if fmt == "vtk" and _legacy_structured(path):
-            return _read_with_vtk(path)
+        if fallback is not None:
+            raw = fallback(path)
+            if raw is not None:
+                return raw
         raise diagnose_read_failure(path, fmt, exc) from None
 
 
-def _legacy_structured(path: str) -> bool:
-    """True for a legacy VTK file holding a structured dataset (which meshio does not read)."""
-    try:
-        with open(path, "rb") as handle:
-            head = handle.read(1024).upper()
-    except OSError:
-        return False
-    import re
+def meshio_reader(fmt: str):
+    """meshio's reader function of format ``fmt`` (``'vtu'``, ``'vtk'``, ``'xdmf'``)."""
+    import meshio
 
-    return re.search(rb"\nDATASET\s+(STRUCTURED_POINTS|STRUCTURED_GRID|RECTILINEAR_GRID)\b", head) is not None
-
-
-def _check_structured_sizes(data, path: str) -> None:
-    """Refuse a structured dataset whose arrays do not fit its dimensions (a truncated file).
-
-    VTK's readers hand a truncated file over with short arrays, and building cells from them can
-    crash the process, so the sizes are checked before anything else touches the data.
-    """
-    dims = getattr(data, "dimensions", None)
-    expected = int(np.prod(dims)) if dims is not None else data.n_points
-    sizes = {"points": data.n_points}
-    if hasattr(data, "points") and type(data).__name__ == "StructuredGrid":
-        sizes["points"] = len(data.points)
-    for name in data.point_data.keys():
-        sizes[f"point field '{name}'"] = len(data.point_data[name])
-    bad = {k: v for k, v in sizes.items() if v != expected}
-    cells = int(np.prod([max(d - 1, 1) for d in dims])) if dims is not None else data.n_cells
-    bad.update({f"cell field '{n}'": len(data.cell_data[n]) for n in data.cell_data.keys()
-                if len(data.cell_data[n]) != cells})
-    if bad or expected == 0:
-        what = ", ".join(f"{k} has {v}" for k, v in bad.items()) or "no points"
-        raise UnreadableFileError(f"the structured dataset does not fit its dimensions {tuple(dims or ())} "
-                                  f"({what}), so it is truncated", where=path,
-                                  fix="the solver may have stopped while writing it: write the step again or "
-                                      "remove it from the series")
-
-
-def _read_with_vtk(path: str):
-    """Read a structured VTK dataset with VTK's own reader and hand it over as a meshio mesh."""
-    try:
-        import pyvista
-
-        catcher = pyvista.VtkErrorCatcher(raise_errors=False)
-        with warnings.catch_warnings(), catcher, contextlib.redirect_stderr(io.StringIO()):
-            warnings.simplefilter("ignore")
-            data = pyvista.read(path)
-        if catcher.events:  # VTK reports a damaged or short file and hands over what it got
-            first = catcher.events[0].alert.splitlines()[-1].strip()
-            raise UnreadableFileError(f"VTK's reader reports the data is damaged or ends early ({first})",
-                                      where=path, fix="the solver may have stopped while writing it: write the "
-                                                      "step again or remove it from the series")
-        with warnings.catch_warnings():
-            warnings.simplefilter("ignore")
-            _check_structured_sizes(data, path)
-            grid = data.cast_to_unstructured_grid()
-            raw = pyvista.to_meshio(grid)
-    except UnreadableFileError:
-        raise
-    except Exception as exc:
-        raise UnreadableFileError(
-            f"cannot be read as a structured VTK dataset ({_short(exc)})", where=path,
-            fix="check that the file is complete and was fully written") from None
-    if grid.n_cells == 0:
-        raise UnreadableFileError("holds no cells", where=path,
-                                  fix="the file may be truncated; write it again")
-    raw.field_data = {k: np.asarray(data.field_data[k]) for k in data.field_data.keys()}
-    return raw
-
-
-def _short(exc: BaseException) -> str:
-    text = " ".join(str(exc).split()) or type(exc).__name__
-    return text if len(text) <= 120 else text[:117] + "..."
+    return meshio._helpers.reader_map[fmt]
 
 
 _STOPPED = "the solver may have stopped while writing it: write the step again or remove it from the series"
@@ -198,17 +123,18 @@ def diagnose_read_failure(path: str, fmt: str, exc: BaseException):
         problem = _xml_problem(path)
         if problem is not None:
             return UnreadableFileError(f"cannot be read as a mesh: {problem}", where=path, fix=_STOPPED)
-        return UnreadableFileError(f"cannot be read as a mesh: the XML is complete but its data is not ({_short(exc)})",
-                                   where=path, fix="write the file again with a VTK or XDMF writer")
+        return UnreadableFileError("cannot be read as a mesh: the XML is complete but its data is not "
+                                   f"({short_text(exc)})", where=path,
+                                   fix="write the file again with a VTK or XDMF writer")
     if fmt == "vtk":
         if not head.startswith(b"# vtk DataFile"):
             fix = ("rename it to .vtu" if head.lstrip().startswith(b"<") else
                    "give a file written by a VTK writer")
             return UnreadableFileError(f"cannot be read as a mesh: not a legacy VTK file, it starts with {start!r}",
                                        where=path, fix=fix)
-        return UnreadableFileError(f"cannot be read as a mesh: the VTK data ends early or is damaged ({_short(exc)})",
-                                   where=path, fix=_STOPPED)
-    return UnreadableFileError(f"cannot be read as a mesh ({_short(exc)})", where=path,
+        return UnreadableFileError("cannot be read as a mesh: the VTK data ends early or is damaged "
+                                   f"({short_text(exc)})", where=path, fix=_STOPPED)
+    return UnreadableFileError(f"cannot be read as a mesh ({short_text(exc)})", where=path,
                                fix="check that the file is complete VTK (.vtu, .vtk) or XDMF")
 
 
@@ -247,7 +173,9 @@ def hdf5_problem(exc: BaseException, xdmf_path: str):
     if match:
         name = os.path.basename(match.group(1))
     else:
-        names = _hdf5_names(xdmf_path)
+        from ._xdmf import data_file_names
+
+        names = data_file_names(xdmf_path)
         name = names[0] if len(names) == 1 else "an HDF5 file it names"
     if isinstance(exc, FileNotFoundError) or "No such file" in text:
         return InputFileNotFound(f"the HDF5 file '{name}' that {xdmf} names is missing", where=xdmf_path,
@@ -257,19 +185,84 @@ def hdf5_problem(exc: BaseException, xdmf_path: str):
     detail = f" ({sizes.group(1)} of {sizes.group(2)} bytes)" if sizes else ""
     if "truncated" in text.lower():
         return UnreadableFileError(f"the HDF5 file '{name}' is truncated{detail}", where=xdmf_path, fix=_STOPPED)
-    return UnreadableFileError(f"the HDF5 file '{name}' cannot be opened ({_short(exc)})", where=xdmf_path,
+    return UnreadableFileError(f"the HDF5 file '{name}' cannot be opened ({short_text(exc)})", where=xdmf_path,
                                fix=f"check {name}: it may be damaged or still being written")
 
 
-def _hdf5_names(xdmf_path: str) -> list:
-    import re
+class XdmfTimeSeries:
+    """An XDMF temporal collection, read one grid at a time with meshio's ``TimeSeriesReader``.
 
-    try:
-        with open(xdmf_path, encoding="utf-8", errors="replace") as handle:
-            text = handle.read(1 << 20)
-    except OSError:
-        return []
-    return sorted(set(re.findall(r">\s*([^<>:\s]+\.(?:h5|hdf5|hdf))\s*:", text)))
+    The points and cells are read once per mesh (the collection's shared mesh,
+    or a grid's own) and the model :class:`Mesh` is built once per mesh; HDF5
+    files stay open until :meth:`close`.
+
+    Raises
+    ------
+    UnreadableFileError
+        meshio cannot open the collection.
+    """
+
+    def __init__(self, path: str):
+        import meshio
+
+        ensure_vtk_extras()
+        self.path = path
+        try:
+            self._reader = meshio.xdmf.TimeSeriesReader(path)
+        except Exception as exc:
+            raise UnreadableFileError(f"cannot be read as an XDMF time series ({exc})", where=path,
+                                      fix="check the XDMF file and the HDF5 files it names") from None
+        self._points_key = None  # whose points and cells the reader holds now
+        self._built = None  # (key, Mesh) of the last mesh built
+
+    def read(self, grid: int, where: str):
+        """``(key, raw)``: which mesh grid ``grid`` uses (its index or ``'shared'``) and a meshio mesh of it."""
+        import meshio
+        import xml.etree.ElementTree as ET
+
+        reader = self._reader
+        node = reader.collection[grid]
+        own_mesh = any(child.tag in ("Topology", "Geometry") for child in node)
+        key = grid if own_mesh else "shared"
+        try:
+            with warnings.catch_warnings():
+                warnings.simplefilter("ignore")
+                if self._points_key != key:
+                    if own_mesh:
+                        reader.mesh_grid = node
+                    reader._points, _ = reader.read_points_cells()
+                    self._points_key = key
+                if node.find("Time") is None:  # meshio needs a time in every grid
+                    ET.SubElement(node, "Time", Value=str(float(grid)))
+                _, point_data, cell_data = reader.read_data(grid)
+        except Exception as exc:
+            problem = hdf5_problem(exc, self.path)
+            if problem is not None:
+                raise problem.at(where) from None
+            if isinstance(exc, FileNotFoundError):
+                raise InputFileNotFound(f"a data file the XDMF names is missing ({short_text(exc)})",
+                                        where=where, fix="restore the HDF5 file next to the XDMF file") from None
+            raise UnreadableFileError(f"cannot read the step's data ({short_text(exc)})", where=where,
+                                      fix="check that the HDF5 file is complete (not truncated)") from None
+        return key, meshio.Mesh(reader._points, reader.cells, point_data=point_data, cell_data=cell_data)
+
+    def step(self, grid: int, where: str, pool=None) -> tuple[Mesh, "StepFields"]:
+        """Mesh and fields of grid ``grid`` (the mesh built once while the grids share it)."""
+        key, raw = self.read(grid, where)
+        if self._built is not None and self._built[0] == key:
+            mesh = self._built[1]
+            return mesh, step_fields(mesh, raw, where, field_data=False)
+        mesh, fields = mesh_and_fields(raw, where, pool)
+        self._built = (key, mesh)
+        return mesh, fields
+
+    def close(self) -> None:
+        """Close the HDF5 files the reader opened."""
+        for handle in self._reader.hdf5_files.values():
+            try:
+                handle.close()
+            except Exception:
+                pass
 
 
 def join_cell_data(mesh: Mesh, cell_data: dict, where: str = "") -> dict:
@@ -287,52 +280,38 @@ def join_cell_data(mesh: Mesh, cell_data: dict, where: str = "") -> dict:
     return out
 
 
-#: meshes a process has built and keeps for later readers: a worker forked for a later run in the
-#: same process finds the mesh here, with its cached measures and topology, instead of rebuilding them
-_MESH_POOL: list = []
-
-
-def remember_mesh(mesh: Mesh | None) -> None:
-    """Keep ``mesh`` (the last two) for readers opened later in this process or its forks."""
-    if mesh is not None and all(m is not mesh and m.signature != mesh.signature for m in _MESH_POOL):
-        _MESH_POOL.append(mesh)
-        del _MESH_POOL[:-2]
-
-
-def _same_mesh(known: list, candidate: Mesh) -> Mesh | None:
-    for mesh in known:
-        if mesh.n_points == candidate.n_points and mesh.same_topology(candidate.points, candidate.blocks):
-            return mesh
-    return None
-
-
-def mesh_and_fields(raw, path: str, previous: Mesh | None = None) -> tuple[Mesh, StepFields]:
-    """Turn a meshio mesh into a :class:`Mesh` (reusing ``previous`` when equal) and fields.
+def mesh_and_fields(raw, where: str, pool=None) -> tuple[Mesh, StepFields]:
+    """Turn a meshio mesh into a :class:`Mesh` (a kept one of ``pool`` when equal) and fields.
 
     A new mesh is checked once: point coordinates must be finite, and points
     that coincide exactly (files that store the corners of every cell apart)
     are merged, with their point data averaged, so that neighbouring cells
-    share their corners (:class:`MeshWarning`).
+    share their corners (:class:`MeshWarning`). The caller keeps the mesh in
+    its pool.
     """
     try:
         candidate = Mesh(raw.points, raw.cells)
     except UnsupportedMeshError as err:
-        raise err.with_where(path) from None
-    known = [m for m in [previous] + _MESH_POOL if m is not None]
-    mesh = _same_mesh(known, candidate)
+        raise err.with_where(where) from None
+    mesh = None if pool is None else pool.match(candidate)
     if mesh is None:
-        mesh = _checked_mesh(candidate, raw, path)
-        if mesh is not candidate:
-            mesh = _same_mesh(known, mesh) or mesh
-    point_data = point_fields(mesh, raw.point_data, where=path)
-    cell_data = join_cell_data(mesh, raw.cell_data, where=path)
-    field_data = {k: np.asarray(v) for k, v in (raw.field_data or {}).items()}
-    return mesh, StepFields(point_data, cell_data, field_data)
+        mesh = _checked_mesh(candidate, raw, where)
+        if mesh is not candidate and pool is not None:
+            mesh = pool.match(mesh) or mesh
+    return mesh, step_fields(mesh, raw, where)
+
+
+def step_fields(mesh: Mesh, raw, where: str, *, field_data: bool = True) -> StepFields:
+    """The fields of a meshio mesh on the points and analysed cells of ``mesh``."""
+    point_data = point_fields(mesh, raw.point_data, where=where)
+    cell_data = join_cell_data(mesh, raw.cell_data, where=where)
+    fields = {k: np.asarray(v) for k, v in (raw.field_data or {}).items()} if field_data else {}
+    return StepFields(point_data, cell_data, fields)
 
 
 def point_fields(mesh: Mesh, point_data: dict, where: str = "") -> dict:
     """Point data of a step on the points of ``mesh`` (averaged over merged duplicate points)."""
-    merge = getattr(mesh, "_point_merge", None)
+    merge = mesh.point_merge
     n_source = mesh.n_points if merge is None else merge.size
     out = {}
     for name, values in point_data.items():
@@ -367,8 +346,7 @@ def _checked_mesh(mesh: Mesh, raw, where: str) -> Mesh:
     blocks = [(b.type, inverse[np.asarray(b.data, dtype=np.int64)]) for b in raw.cells]
     points = np.zeros((n_unique, 3))
     points[inverse] = mesh.points
-    merged = Mesh(points, blocks)
-    merged._point_merge = inverse
+    merged = Mesh(points, blocks, point_merge=inverse)
     warnings.warn(MeshWarning(f"{mesh.n_points - n_unique} duplicate points merged (cells share their corners "
                               "now); point fields are averaged over the copies", where=where), stacklevel=3)
     return merged
@@ -427,3 +405,4 @@ def _coincident_points(points: np.ndarray) -> tuple[np.ndarray, int]:
 
 
 _MIX = np.array([0x9E3779B97F4A7C15, 0xC2B2AE3D27D4EB4F, 0x165667B19E3779F9], dtype=np.uint64)
+_MIX.flags.writeable = False

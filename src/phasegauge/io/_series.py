@@ -19,15 +19,16 @@ import glob as globmod
 import os
 import re
 import warnings
-import xml.etree.ElementTree as ET
 from dataclasses import dataclass
 
 import numpy as np
 
-from ..errors import (InputFileNotFound, PhasegaugeError, SeriesError, SeriesWarning,
-                      UnreadableFileError)
+from ..errors import InputFileNotFound, PhasegaugeError, SeriesError, SeriesWarning, UnreadableFileError
 from ..model.mesh import Mesh
-from ._meshio_adapter import MESH_SUFFIXES, StepFields, mesh_and_fields, read_meshio
+from ._formats import TIME_NEEDS_FULL_READ, format_for, peek_time, read_mesh_file, suffix_list
+from ._mesh_pool import MeshPool
+from ._meshio_adapter import StepFields, XdmfTimeSeries, mesh_and_fields
+from ._xdmf import grid_time, temporal_grids
 
 __all__ = ["Series", "StepInfo", "Step", "open_series", "natural_key", "read_listing",
            "LISTING_SUFFIXES"]
@@ -36,8 +37,6 @@ __all__ = ["Series", "StepInfo", "Step", "open_series", "natural_key", "read_lis
 LISTING_SUFFIXES = (".steps", ".txt", ".csv", ".list")
 
 TIME_ARRAY_NAMES = ("TimeValue", "TIME", "time", "Time")
-
-_XINCLUDE = "{http://www.w3.org/2001/XInclude}include"
 
 
 def natural_key(text: str):
@@ -130,67 +129,7 @@ def read_listing(path: str) -> list[tuple[float, str]]:
 
 
 def _is_mesh_file(name: str) -> bool:
-    return name.lower().endswith(MESH_SUFFIXES)
-
-
-def _xdmf_collection(path: str):
-    """Return the list of temporal grids (Elements) or None for a plain XDMF file."""
-    try:
-        root = ET.parse(path).getroot()
-    except (ET.ParseError, OSError) as exc:
-        raise UnreadableFileError(f"not a readable XDMF file ({exc})", where=path,
-                                  fix="check that the file is complete XML") from None
-    for grid in root.iter("Grid"):
-        if grid.get("GridType") == "Collection" and grid.get("CollectionType") == "Temporal":
-            return [g for g in grid if g.tag == "Grid"]
-    return None
-
-
-def _peek_time(path: str) -> float | None:
-    """Time value stored in a file's field data, read cheaply where possible."""
-    lower = path.lower()
-    try:
-        if lower.endswith(".vtk"):
-            return _peek_legacy_time(path)
-        if lower.endswith((".vtu", ".vti", ".vtr", ".vts")):
-            return _peek_vtu_time(path)
-    except (OSError, ValueError):
-        return None
-    return None
-
-
-def _peek_legacy_time(path: str) -> float | None:
-    with open(path, "rb") as handle:
-        head = handle.read(1 << 16)
-    match = re.search(rb"\n(?:TimeValue|TIME)\s+1\s+1\s+(double|float)\s*\n", head)
-    if not match:
-        return None
-    binary = b"\nBINARY" in head[:1024].upper()
-    rest = head[match.end():]
-    if binary:
-        size = 8 if match.group(1) == b"double" else 4
-        return float(np.frombuffer(rest[:size], dtype=">f8" if size == 8 else ">f4")[0])
-    return float(rest.split()[0])
-
-
-def _peek_vtu_time(path: str) -> float | None:
-    with open(path, "rb") as handle:
-        head = handle.read(1 << 16)
-    start = head.find(b"<FieldData")
-    piece = head.find(b"<Piece")
-    if start < 0 or (0 <= piece < start):
-        return None
-    match = re.search(rb'<DataArray[^>]*Name="(TimeValue|TIME|time|Time)"[^>]*>', head[start:])
-    if not match:
-        return None
-    tag = match.group(0)
-    if b'format="ascii"' in tag:
-        body = head[start + match.end():].split(b"<", 1)[0]
-        return float(body.split()[0])
-    return _TIME_FROM_FULL_READ
-
-
-_TIME_FROM_FULL_READ = object()
+    return format_for(name) is not None
 
 
 class Series:
@@ -200,6 +139,10 @@ class Series:
     ----------
     path : str or os.PathLike
         A mesh file, XDMF time collection, folder, glob pattern or step listing.
+    mesh_pool : MeshPool, optional
+        Where the meshes read are kept for reuse; give one pool to several
+        series (or runs) to share the mesh work between them. Default: a pool
+        of this series that keeps the last mesh.
 
     Attributes
     ----------
@@ -215,14 +158,14 @@ class Series:
 
     Notes
     -----
-    The mesh of the last step read is kept; a step whose points and cells are
-    equal reuses it, so work cached on the mesh (measures, adjacency) is done
+    The meshes read are kept in the pool; a step whose points and cells are
+    equal reuses one, so work cached on the mesh (measures, adjacency) is done
     once per series while the topology stays the same.
     """
 
-    def __init__(self, path):
+    def __init__(self, path, *, mesh_pool: MeshPool | None = None):
         self.path = os.fspath(path)
-        self._mesh: Mesh | None = None
+        self.mesh_pool = MeshPool() if mesh_pool is None else mesh_pool
         self._xdmf_readers: dict = {}
         self.steps = self._discover()
 
@@ -233,8 +176,7 @@ class Series:
             files = sorted((os.path.join(path, f) for f in os.listdir(path) if _is_mesh_file(f)),
                            key=natural_key)
             if not files:
-                raise SeriesError("the folder holds no mesh files (.vtu, .vtk, .vti, .vtr, .vts, .xdmf, .xmf)",
-                              where=path,
+                raise SeriesError(f"the folder holds no mesh files ({suffix_list()})", where=path,
                                   fix="give a folder of mesh files, a mesh file or a step listing")
             self.kind = "folder"
             steps = self._from_files(files)
@@ -263,14 +205,14 @@ class Series:
                                     "restore the files")
             return [StepInfo(i, t, "listing", f) for i, (t, f) in enumerate(rows)]
         if path.lower().endswith((".xdmf", ".xmf")):
-            grids = _xdmf_collection(path)
+            grids = temporal_grids(path)
             if grids is not None:
                 self.kind = "collection"
                 steps = []
                 for i, grid in enumerate(grids):
-                    node = grid.find("Time")
-                    if node is not None and node.get("Value") is not None:
-                        steps.append(StepInfo(i, float(node.get("Value")), "xdmf", path, grid=i))
+                    t = grid_time(grid)
+                    if t is not None:
+                        steps.append(StepInfo(i, t, "xdmf", path, grid=i))
                     else:
                         steps.append(StepInfo(i, float(i), "index", path, grid=i))
                 if not steps:
@@ -279,8 +221,8 @@ class Series:
                 return steps
         if not _is_mesh_file(path):
             raise UnreadableFileError(
-                "is neither a mesh file (.vtu, .vtk, .vti, .vtr, .vts, .xdmf, .xmf) nor a step listing "
-                "(.steps, .txt, .csv, .list)", where=path,
+                f"is neither a mesh file ({suffix_list()}) nor a step listing "
+                f"({', '.join(LISTING_SUFFIXES)})", where=path,
                 fix="give a mesh file, a folder, a quoted glob or a 'time,path' listing")
         self.kind = "file"
         return self._from_files([path])
@@ -288,10 +230,10 @@ class Series:
     def _from_files(self, files: list[str]) -> list[StepInfo]:
         steps = []
         for i, f in enumerate(files):
-            t = _peek_time(f)
-            if t is _TIME_FROM_FULL_READ:
+            t = peek_time(f)
+            if t is TIME_NEEDS_FULL_READ:
                 try:
-                    raw = read_meshio(f)
+                    raw = read_mesh_file(f)
                 except PhasegaugeError:  # an unreadable step: its time is unknown; reading it fails later
                     steps.append(StepInfo(i, float("nan"), "unknown", f))
                     continue
@@ -364,8 +306,8 @@ class Series:
                                         fix="restore the file" + (", or remove its line from the listing"
                                                                   if named else ""))
             try:
-                raw = read_meshio(info.path)
-                mesh, fields = mesh_and_fields(raw, info.where, previous=self._mesh)
+                raw = read_mesh_file(info.path)
+                mesh, fields = mesh_and_fields(raw, info.where, self.mesh_pool)
             except PhasegaugeError as err:
                 raise err.at(info.where) from None
             if info.time_origin == "index":
@@ -373,80 +315,23 @@ class Series:
                 if t is not None:
                     info = StepInfo(info.index, t, "file", info.path)
                     self.steps[index] = info
-        self._mesh = mesh
+        self.mesh_pool.add(mesh)
         return Step(info, mesh, fields)
 
     def read_mesh(self, index: int = 0) -> Mesh:
         """The mesh of step ``index`` (read once and reused while the topology stays)."""
         return self.read(index).mesh
 
-    def _collection_reader(self, path: str):
-        import meshio
-
-        from ._meshio_adapter import _register_vtk_extras
-
-        _register_vtk_extras()
-        reader = self._xdmf_readers.get(path)
-        if reader is None:
-            try:
-                reader = meshio.xdmf.TimeSeriesReader(path)
-            except Exception as exc:
-                raise UnreadableFileError(f"cannot be read as an XDMF time series ({exc})", where=path,
-                                          fix="check the XDMF file and the HDF5 files it names") from None
-            reader._phasegauge_mesh_key = None
-            self._xdmf_readers[path] = reader
-        return reader
-
     def _read_collection_step(self, info: StepInfo):
-        reader = self._collection_reader(info.path)
-        where = info.where
-        grid = reader.collection[info.grid]
-        own_mesh = any(child.tag in ("Topology", "Geometry") for child in grid)
-        key = info.grid if own_mesh else "shared"
-        try:
-            with warnings.catch_warnings():
-                warnings.simplefilter("ignore")
-                if reader._phasegauge_mesh_key != key:
-                    if own_mesh:
-                        reader.mesh_grid = grid
-                    reader._points, _ = reader.read_points_cells()
-                    reader._phasegauge_mesh_key = key
-                _, point_data, cell_data = _read_data_any_time(reader, info.grid)
-        except Exception as exc:
-            from ._meshio_adapter import hdf5_problem
-
-            problem = hdf5_problem(exc, info.path)
-            if problem is not None:
-                raise problem.at(where) from None
-            if isinstance(exc, FileNotFoundError):
-                raise InputFileNotFound(f"a data file the XDMF names is missing ({_short(exc)})",
-                                        where=where, fix="restore the HDF5 file next to the XDMF file") from None
-            raise UnreadableFileError(f"cannot read the step's data ({_short(exc)})", where=where,
-                                      fix="check that the HDF5 file is complete (not truncated)") from None
-        import meshio
-
-        cached = getattr(reader, "_phasegauge_mesh", None)
-        raw = meshio.Mesh(reader._points, reader.cells, point_data=point_data, cell_data=cell_data)
-        if cached is not None and cached[0] == key:
-            # same grid mesh as the step before: reuse the model without rebuilding it
-            from ._meshio_adapter import StepFields, join_cell_data, point_fields
-
-            mesh = cached[1]
-            fields = StepFields(point_fields(mesh, point_data, where=where),
-                                join_cell_data(mesh, raw.cell_data, where=where), {})
-            return mesh, fields
-        mesh, fields = mesh_and_fields(raw, where, previous=self._mesh)
-        reader._phasegauge_mesh = (key, mesh)
-        return mesh, fields
+        reader = self._xdmf_readers.get(info.path)
+        if reader is None:
+            reader = self._xdmf_readers[info.path] = XdmfTimeSeries(info.path)
+        return reader.step(info.grid, info.where, self.mesh_pool)
 
     def close(self) -> None:
-        """Close HDF5 files held open by XDMF readers."""
+        """Close HDF5 files held open by XDMF readers (the kept meshes stay in the pool)."""
         for reader in self._xdmf_readers.values():
-            for f in reader.hdf5_files.values():
-                try:
-                    f.close()
-                except Exception:
-                    pass
+            reader.close()
         self._xdmf_readers.clear()
 
     def __enter__(self):
@@ -458,7 +343,6 @@ class Series:
     def __getstate__(self):
         state = self.__dict__.copy()
         state["_xdmf_readers"] = {}
-        state["_mesh"] = None
         return state
 
 
@@ -512,18 +396,6 @@ def _warn_numbering_gaps(files: list, where: str, steps: list) -> None:
                                 f"changed; {then}", where=where), stacklevel=3)
 
 
-def _read_data_any_time(reader, k: int):
-    grid = reader.collection[k]
-    if grid.find("Time") is None:
-        ET.SubElement(grid, "Time", Value=str(float(k)))
-    return reader.read_data(k)
-
-
-def _short(exc: BaseException) -> str:
-    text = " ".join(str(exc).split()) or type(exc).__name__
-    return text if len(text) <= 120 else text[:117] + "..."
-
-
 def _time_from_field_data(field_data: dict) -> float | None:
     for name in TIME_ARRAY_NAMES:
         if name in field_data:
@@ -533,6 +405,6 @@ def _time_from_field_data(field_data: dict) -> float | None:
     return None
 
 
-def open_series(path) -> Series:
+def open_series(path, *, mesh_pool: MeshPool | None = None) -> Series:
     """Open a series (see :class:`Series`)."""
-    return Series(path)
+    return Series(path, mesh_pool=mesh_pool)

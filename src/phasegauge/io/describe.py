@@ -9,6 +9,7 @@ import numpy as np
 
 from ..errors import (FieldNotFoundError, InputError, InputFileNotFound, MeshWarning, PhasegaugeWarning,
                       SeriesWarning, SkippedStepWarning, collapse_warnings)
+from ..model.axes import AXIS_NAMES
 from . import Series
 
 #: errors of one step's file: the step is reported as unreadable and the others are described
@@ -184,7 +185,7 @@ def format_description(desc: dict) -> str:
     if desc["regular_grid"]:
         lines.append("grid        regular, " + " x ".join(str(n) for n in desc["regular_grid"]) + " cells")
     lo, hi = desc["bounds"]
-    lines.append("bounds      " + "  ".join(f"{a} [{l:.6g}, {h:.6g}]" for a, l, h in zip("xyz", lo, hi)))
+    lines.append("bounds      " + "  ".join(f"{a} [{l:.6g}, {h:.6g}]" for a, l, h in zip(AXIS_NAMES, lo, hi)))
     cs = desc["cell_size"]
     word = "area" if desc["dimension"] == 2 else "volume"
     lines.append(f"domain      {word} {desc['total_measure']:.6g}; cell size min {cs['min']:.4g}, "

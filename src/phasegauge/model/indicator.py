@@ -26,8 +26,9 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from ..errors import (FieldNotFoundError, FieldShapeError, NonFiniteWarning, OptionError,
+from ..errors import (FieldShapeError, NonFiniteWarning, OptionError,
                       RangeWarning)
+from .fields import named_field
 from .mesh import Mesh
 
 __all__ = ["Indicator", "make_indicator", "map_to_indicator", "parse_range", "normalize_phase",
@@ -150,15 +151,7 @@ def select_field(fields, name: str, *, where: str = "") -> tuple[np.ndarray, str
     match = _COMPONENT.match(name)
     if match and name not in fields.point_data and name not in fields.cell_data:
         base, component = match.group("name"), int(match.group("k"))
-    if base in fields.point_data:
-        values, location = fields.point_data[base], "point"
-    elif base in fields.cell_data:
-        values, location = fields.cell_data[base], "cell"
-    else:
-        available = ", ".join(fields.names()) or "none"
-        raise FieldNotFoundError(f"field '{base}' not found; fields there: {available}", where=where,
-                                 fix="name one of those fields with --field")
-    values = np.asarray(values)
+    values, location = named_field(fields, base, where=where, fix="name one of those fields with --field")
     if values.ndim == 2 and values.shape[1] == 1:
         values = values[:, 0]
     if component is not None:

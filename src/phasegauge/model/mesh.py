@@ -135,6 +135,11 @@ class Mesh:
         All cell blocks of the file. Blocks of the highest topological
         dimension become the analysed cells; lower-dimensional blocks are kept
         as :attr:`boundary_blocks`.
+    point_merge : array_like of shape (n_source_points,), int, optional
+        For a mesh whose coincident points a reader merged: the index of each
+        point of the source file among ``points``. Kept as :attr:`point_merge`
+        (None otherwise), so the file's point data can be averaged onto the
+        merged points.
 
     Raises
     ------
@@ -157,7 +162,7 @@ class Mesh:
     0.5
     """
 
-    def __init__(self, points, cells):
+    def __init__(self, points, cells, *, point_merge=None):
         pts = np.asarray(points, dtype=np.float64)
         if pts.ndim != 2 or pts.shape[1] not in (1, 2, 3):
             raise UnsupportedMeshError(
@@ -210,6 +215,7 @@ class Mesh:
         self.block_offsets = np.concatenate([[0], np.cumsum(sizes)]).astype(np.int64)
         self.n_cells = int(self.block_offsets[-1])
         self.n_points = n_points
+        self.point_merge = None if point_merge is None else np.asarray(point_merge, dtype=np.int64)
 
     # ------------------------------------------------------------------ basics
     def __repr__(self) -> str:

@@ -85,7 +85,7 @@ def _compare_runs(first, second, *, out, overwrite, level, time_tolerance, spaci
 
     from ..analysis import compare as cmp
     from ..analysis import references
-    from ..io import Series
+    from ..io import Series, read_reference_table
     from ..model.indicator import make_indicator
     from .measure import MeasureOptions, measure
 
@@ -145,7 +145,8 @@ def _compare_runs(first, second, *, out, overwrite, level, time_tolerance, spaci
         checks.append(references.check_rising_bubble(references.bubble_history(res_a.droplets))
                       .assign(run=labels[0]))
     if reference_table:
-        checks.append(references.check_against_table(_reference_quantities(res_a), reference_table)
+        checks.append(references.check_against_table(_reference_quantities(res_a),
+                                                      read_reference_table(reference_table))
                       .assign(run=labels[0]))
     reference_checks = pd.concat(checks, ignore_index=True) if checks else pd.DataFrame()
     result = CompareResult(comparison=comparison, pairs=pairs,

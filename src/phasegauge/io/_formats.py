@@ -1,0 +1,132 @@
+"""The file formats a step can be read from: suffix -> reader and time peeker, in one table.
+
+Each format module declares its formats with :func:`register_format` in a
+module-level tuple ``FORMATS``; :data:`FORMAT_MODULES` names those modules.
+Adding a format is writing such a module (its reader turns a file into a
+meshio-style mesh: ``points``, ``cells``, ``point_data``, ``cell_data``,
+``field_data``) and naming it here; series discovery, the error messages and
+:data:`phasegauge.io.MESH_SUFFIXES` follow from the table.
+"""
+
+from __future__ import annotations
+
+import importlib
+import os
+from dataclasses import dataclass
+from typing import Callable
+
+from ..errors import InputFileNotFound, UnreadableFileError
+
+__all__ = ["FileFormat", "register_format", "formats", "format_for", "mesh_suffixes", "read_mesh_file",
+           "peek_time", "TIME_NEEDS_FULL_READ"]
+
+#: the modules that declare formats, in the order their suffixes are listed
+FORMAT_MODULES = ("_vtk", "_xdmf")
+
+
+class _NeedsFullRead:
+    """A peeker's answer: the file stores a time, but only a full read can give it."""
+
+    def __repr__(self) -> str:
+        return "TIME_NEEDS_FULL_READ"
+
+    def __reduce__(self):
+        return "TIME_NEEDS_FULL_READ"
+
+
+TIME_NEEDS_FULL_READ = _NeedsFullRead()
+
+
+@dataclass(frozen=True)
+class FileFormat:
+    """One readable file format.
+
+    Attributes
+    ----------
+    name : str
+    suffixes : tuple of str
+        Lower-case file suffixes with the dot (``'.vtu'``).
+    read : callable
+        ``read(path)`` -> a meshio-style mesh; raises a :class:`phasegauge.errors.PhasegaugeError`
+        that says what is wrong with the file.
+    peek_time : callable or None
+        ``peek_time(path)`` -> the time stored in the file's field data read from its head,
+        None when there is none, or :data:`TIME_NEEDS_FULL_READ`; may raise OSError or ValueError
+        (taken as no time).
+    """
+
+    name: str
+    suffixes: tuple
+    read: Callable
+    peek_time: Callable | None = None
+
+
+def register_format(name: str, suffixes, *, read: Callable, peek_time: Callable | None = None) -> FileFormat:
+    """Declare a format (for a format module's ``FORMATS`` tuple)."""
+    suffixes = tuple(str(s).lower() for s in suffixes)
+    if not suffixes or not all(s.startswith(".") and len(s) > 1 for s in suffixes):
+        raise ValueError(f"format {name!r}: suffixes must start with a dot, found {suffixes}")
+    return FileFormat(name, suffixes, read, peek_time)
+
+
+def formats() -> tuple:
+    """Every registered :class:`FileFormat`, in the order of :data:`FORMAT_MODULES`."""
+    return tuple(fmt for module in FORMAT_MODULES
+                 for fmt in importlib.import_module(f"{__package__}.{module}").FORMATS)
+
+
+def mesh_suffixes() -> tuple:
+    """The suffixes of every registered format."""
+    return tuple(s for fmt in formats() for s in fmt.suffixes)
+
+
+def format_for(path) -> FileFormat | None:
+    """The format of ``path`` by its suffix (any case), or None."""
+    suffix = os.path.splitext(os.fspath(path))[1].lower()
+    for fmt in formats():
+        if suffix in fmt.suffixes:
+            return fmt
+    return None
+
+
+def suffix_list() -> str:
+    """The suffixes as the messages list them: ``.vtu, .vtk, ...``."""
+    return ", ".join(mesh_suffixes())
+
+
+def read_mesh_file(path: str):
+    """Read one mesh file with its format's reader (a meshio-style mesh).
+
+    Raises
+    ------
+    InputFileNotFound
+        No such file.
+    UnreadableFileError
+        A folder, an empty file, a suffix no format reads, or content the reader refuses.
+    """
+    path = os.fspath(path)
+    if not os.path.exists(path):
+        raise InputFileNotFound("file not found", where=path,
+                                fix="check the path (quote globs so the shell does not expand them)")
+    if os.path.isdir(path):
+        raise UnreadableFileError("is a folder, not a mesh file", where=path,
+                                  fix="give the folder itself as the series path")
+    if os.path.getsize(path) == 0:
+        raise UnreadableFileError("the file is empty", where=path,
+                                  fix="the solver may have been stopped while writing; rewrite or remove the step")
+    fmt = format_for(path)
+    if fmt is None:
+        raise UnreadableFileError(f"is not a mesh file ({suffix_list()})", where=path,
+                                  fix="convert the file to VTK or XDMF")
+    return fmt.read(path)
+
+
+def peek_time(path: str):
+    """The time stored in a file, read cheaply: a float, None, or :data:`TIME_NEEDS_FULL_READ`."""
+    fmt = format_for(path)
+    if fmt is None or fmt.peek_time is None:
+        return None
+    try:
+        return fmt.peek_time(path)
+    except (OSError, ValueError):
+        return None

@@ -1,0 +1,53 @@
+"""The input files of a series, with their sizes and content hashes (for manifests and the resume cache)."""
+
+from __future__ import annotations
+
+import hashlib
+import os
+
+__all__ = ["file_sha256", "input_files"]
+
+
+def file_sha256(path, chunk: int = 1 << 22) -> str:
+    """SHA-256 of a file's content, hex."""
+    digest = hashlib.sha256()
+    with open(path, "rb") as handle:
+        while True:
+            block = handle.read(chunk)
+            if not block:
+                break
+            digest.update(block)
+    return digest.hexdigest()
+
+
+def input_files(series, known_sha256: dict | None = None) -> list:
+    """Every input file of a series: the step files, the HDF5 files an XDMF collection names, a listing.
+
+    Parameters
+    ----------
+    series : Series
+    known_sha256 : dict of str to str, optional
+        Hashes already computed (path as the series names it -> SHA-256), reused instead of
+        reading the file again.
+
+    Returns
+    -------
+    list of dict
+        ``{"path": absolute path, "bytes": size, "sha256": hex digest}`` for each file that
+        exists, in order: the listing, the step files, the data files.
+    """
+    from ._xdmf import xdmf_data_files
+
+    known = known_sha256 or {}
+    files = list(series.files)
+    if series.kind == "collection":
+        files += xdmf_data_files(series.path)
+    if series.kind == "listing":
+        files = [series.path] + files
+    out = []
+    for f in files:
+        if not os.path.exists(f):
+            continue
+        out.append({"path": os.path.abspath(f), "bytes": os.path.getsize(f),
+                    "sha256": known.get(f) or file_sha256(f)})
+    return out

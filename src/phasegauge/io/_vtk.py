@@ -1,0 +1,148 @@
+"""VTK files: XML unstructured (``.vtu``), legacy (``.vtk``) and XML structured (``.vti``, ``.vtr``, ``.vts``).
+
+Unstructured and legacy files are read through meshio (:mod:`._meshio_adapter`);
+structured datasets, which meshio does not read, through VTK's own readers
+(pyvista), handed over as a meshio mesh. A legacy file holding a structured
+dataset that meshio refuses goes the same way. Times stored in the field data
+(``TimeValue``, as VTK's writers store them) are peeked from the file's head.
+"""
+
+from __future__ import annotations
+
+import contextlib
+import io
+import re
+import warnings
+
+import numpy as np
+
+from ..errors import UnreadableFileError, short_text
+from ._formats import TIME_NEEDS_FULL_READ, register_format
+from ._meshio_adapter import read_with_meshio
+
+__all__ = ["FORMATS", "read_structured"]
+
+#: how many bytes of a file's head the time peekers look at
+PEEK_BYTES = 1 << 16
+
+_STOPPED = "the solver may have stopped while writing it: write the step again or remove it from the series"
+
+
+def peek_legacy_time(path: str):
+    """The ``TimeValue`` (or ``TIME``) field-data value in a legacy VTK file's head, or None."""
+    with open(path, "rb") as handle:
+        head = handle.read(PEEK_BYTES)
+    match = re.search(rb"\n(?:TimeValue|TIME)\s+1\s+1\s+(double|float)\s*\n", head)
+    if not match:
+        return None
+    binary = b"\nBINARY" in head[:1024].upper()
+    rest = head[match.end():]
+    if binary:
+        size = 8 if match.group(1) == b"double" else 4
+        return float(np.frombuffer(rest[:size], dtype=">f8" if size == 8 else ">f4")[0])
+    return float(rest.split()[0])
+
+
+def peek_xml_time(path: str):
+    """The time in a VTK XML file's ``FieldData`` (before the first piece): a float, None, or
+    :data:`TIME_NEEDS_FULL_READ` when it is stored in binary."""
+    with open(path, "rb") as handle:
+        head = handle.read(PEEK_BYTES)
+    start = head.find(b"<FieldData")
+    piece = head.find(b"<Piece")
+    if start < 0 or (0 <= piece < start):
+        return None
+    match = re.search(rb'<DataArray[^>]*Name="(TimeValue|TIME|time|Time)"[^>]*>', head[start:])
+    if not match:
+        return None
+    tag = match.group(0)
+    if b'format="ascii"' in tag:
+        body = head[start + match.end():].split(b"<", 1)[0]
+        return float(body.split()[0])
+    return TIME_NEEDS_FULL_READ
+
+
+def legacy_structured(path: str) -> bool:
+    """True for a legacy VTK file holding a structured dataset."""
+    try:
+        with open(path, "rb") as handle:
+            head = handle.read(1024).upper()
+    except OSError:
+        return False
+    return re.search(rb"\nDATASET\s+(STRUCTURED_POINTS|STRUCTURED_GRID|RECTILINEAR_GRID)\b", head) is not None
+
+
+def _check_structured_sizes(data, path: str) -> None:
+    """Refuse a structured dataset whose arrays do not fit its dimensions (a truncated file).
+
+    VTK's readers hand a truncated file over with short arrays, and building cells from them can
+    crash the process, so the sizes are checked before anything else touches the data.
+    """
+    dims = getattr(data, "dimensions", None)
+    expected = int(np.prod(dims)) if dims is not None else data.n_points
+    sizes = {"points": data.n_points}
+    if hasattr(data, "points") and type(data).__name__ == "StructuredGrid":
+        sizes["points"] = len(data.points)
+    for name in data.point_data.keys():
+        sizes[f"point field '{name}'"] = len(data.point_data[name])
+    bad = {k: v for k, v in sizes.items() if v != expected}
+    cells = int(np.prod([max(d - 1, 1) for d in dims])) if dims is not None else data.n_cells
+    bad.update({f"cell field '{n}'": len(data.cell_data[n]) for n in data.cell_data.keys()
+                if len(data.cell_data[n]) != cells})
+    if bad or expected == 0:
+        what = ", ".join(f"{k} has {v}" for k, v in bad.items()) or "no points"
+        raise UnreadableFileError(f"the structured dataset does not fit its dimensions {tuple(dims or ())} "
+                                  f"({what}), so it is truncated", where=path, fix=_STOPPED)
+
+
+def read_structured(path: str):
+    """Read a structured VTK dataset with VTK's own reader and hand it over as a meshio mesh."""
+    try:
+        import pyvista
+
+        catcher = pyvista.VtkErrorCatcher(raise_errors=False)
+        with warnings.catch_warnings(), catcher, contextlib.redirect_stderr(io.StringIO()):
+            warnings.simplefilter("ignore")
+            data = pyvista.read(path)
+        if catcher.events:  # VTK reports a damaged or short file and hands over what it got
+            first = catcher.events[0].alert.splitlines()[-1].strip()
+            raise UnreadableFileError(f"VTK's reader reports the data is damaged or ends early ({first})",
+                                      where=path, fix=_STOPPED)
+        with warnings.catch_warnings():
+            warnings.simplefilter("ignore")
+            _check_structured_sizes(data, path)
+            grid = data.cast_to_unstructured_grid()
+            raw = pyvista.to_meshio(grid)
+    except UnreadableFileError:
+        raise
+    except Exception as exc:
+        raise UnreadableFileError(
+            f"cannot be read as a structured VTK dataset ({short_text(exc)})", where=path,
+            fix="check that the file is complete and was fully written") from None
+    if grid.n_cells == 0:
+        raise UnreadableFileError("holds no cells", where=path,
+                                  fix="the file may be truncated; write it again")
+    raw.field_data = {k: np.asarray(data.field_data[k]) for k in data.field_data.keys()}
+    return raw
+
+
+def _structured_fallback(path: str):
+    """A legacy file meshio refused: read it with VTK when it holds a structured dataset (else None)."""
+    return read_structured(path) if legacy_structured(path) else None
+
+
+def read_xml_unstructured(path: str):
+    return read_with_meshio(path, "vtu")
+
+
+def read_legacy(path: str):
+    return read_with_meshio(path, "vtk", fallback=_structured_fallback)
+
+
+FORMATS = (
+    register_format("vtu", (".vtu",), read=read_xml_unstructured, peek_time=peek_xml_time),
+    register_format("vtk", (".vtk",), read=read_legacy, peek_time=peek_legacy_time),
+    register_format("vti", (".vti",), read=read_structured, peek_time=peek_xml_time),
+    register_format("vtr", (".vtr",), read=read_structured, peek_time=peek_xml_time),
+    register_format("vts", (".vts",), read=read_structured, peek_time=peek_xml_time),
+)

@@ -1,0 +1,351 @@
+"""Series-level work over the step results: droplet tracking, phase-volume drift, the diffusion audit, findings.
+
+Droplet tracking links each step to the one before, so it runs in step order;
+:class:`TrackingFeed` takes the results as they arrive (in any order, from any
+process) and links each step as soon as all earlier ones are in. It needs a
+step's labelled cells and its mesh's outline with cell centroids
+(:class:`~phasegauge.model.outline.MeshOutline`), never the step itself, and
+holds an outline only until the step is linked.
+
+The findings of a run are records (:class:`Finding`: kind, severity, text,
+figures): the report words and draws them; ``MeasureResult.flags`` keeps their
+texts.
+"""
+
+from __future__ import annotations
+
+import os
+import warnings
+from dataclasses import dataclass, field
+
+import numpy as np
+
+from ..errors import (AnalysisError, InputError, PhasegaugeError, SeriesError, SeriesWarning, SkippedStepWarning,
+                      collapse_warnings)
+from .options import STEP_COLUMNS
+
+__all__ = ["Finding", "TrackingFeed", "assemble", "findings"]
+
+@dataclass(frozen=True)
+class Finding:
+    """One finding of a run, for the report to put first.
+
+    Attributes
+    ----------
+    kind : str
+        ``interface_widening``, ``phase_volume_drift``, ``open_boundary``,
+        ``indicator_overshoot``, ``interface_under_resolved``,
+        ``droplets_under_resolved``, ``steps_skipped``, or ``warning`` (a
+        warning of the steps or the series, repeats collapsed).
+    severity : {'warning', 'note'}
+        ``warning``: the numbers need a closer look; ``note``: how to read them.
+    text : str
+        The finding in words (the line ``flags`` and the report show).
+    figures : dict
+        The numbers behind the text (JSON-ready).
+    """
+
+    kind: str
+    severity: str
+    text: str
+    figures: dict = field(default_factory=dict)
+
+
+# ------------------------------------------------------------------ tracking, in step order
+class TrackingFeed:
+    """Droplet tracking fed with the step results in step order, while they arrive in any order.
+
+    Parameters
+    ----------
+    options : MeasureOptions
+    indices : iterable of int
+        Every step of the run, in order.
+    cache : StepCache, optional
+        Where outlines of meshes no process holds now are kept (a resumed run).
+
+    Notes
+    -----
+    A step is linked once every earlier step is in and its mesh outline (with
+    centroids) is known: from the result itself, from :meth:`add_outline`, from
+    an outline :meth:`pin`-ned for the whole run, or from the cache. Steps that
+    were skipped, or whose mesh dimension differs from the first analysed
+    step's, are not tracked (:func:`assemble` skips them too).
+    """
+
+    def __init__(self, options, indices, *, cache=None):
+        from ..analysis.tracking import DropletTracker
+
+        self.tracking = "droplets" in options.analyses
+        self.tracker = (DropletTracker(ignore_remerge_within=options.ignore_remerge_within,
+                                       periodic=options.periodic) if self.tracking else None)
+        self._order = list(indices)
+        self._position = 0
+        self._waiting: dict = {}  # index -> result that arrived before an earlier step
+        self._outlines: dict = {}  # signature -> outline a waiting result needs
+        self._pinned: dict = {}  # signature -> outline held for the whole run
+        self._last = None  # outline of the step linked last (the next one usually shares it)
+        self._dimension = None
+        self._cache = cache
+
+    def add(self, result, *, link: bool = True) -> None:
+        """Take one step's result; with ``link``, link every step that is now next in order.
+
+        (``link=False`` only registers the result, a quick call; :meth:`link` does the work.)
+        """
+        outline = result.outline
+        if outline is not None and outline.has_centroids:
+            if self.tracking and result.skipped is None:
+                self._outlines.setdefault(outline.signature, outline)
+            result.outline = outline.without_centroids()  # the result list keeps no mesh arrays
+        self._waiting[result.index] = result
+        if link:
+            self.link()
+
+    def add_outline(self, outline, *, link: bool = True) -> None:
+        """Take the outline (with centroids) of a mesh that a waiting result needs."""
+        if outline is not None:
+            self._outlines.setdefault(outline.signature, outline)
+            if link:
+                self.link()
+
+    def pin(self, outline) -> None:
+        """Hold ``outline`` (with centroids) for the whole run: results of its mesh may come without one."""
+        if outline is not None and outline.has_centroids:
+            self._pinned[outline.signature] = outline
+
+    @property
+    def pinned(self) -> frozenset:
+        """Signatures of the outlines held for the whole run."""
+        return frozenset(self._pinned)
+
+    def holds(self, signature: str) -> bool:
+        """True when the outline of mesh ``signature`` is at hand (no process needs to send it).
+
+        Ask after :meth:`add` of the result that needs it: the outline is then kept until
+        that step is linked.
+        """
+        if signature in self._outlines or signature in self._pinned:
+            return True
+        if self._last is not None and self._last.signature == signature:
+            self._outlines[signature] = self._last  # kept while a waiting result needs it
+            return True
+        return self._cache is not None and self._cache.has_outline(signature)
+
+    @property
+    def complete(self) -> bool:
+        """True when every step has been taken and linked."""
+        return self._position == len(self._order)
+
+    def _outline(self, signature: str):
+        if self._last is not None and self._last.signature == signature:
+            return self._last
+        outline = self._outlines.get(signature) or self._pinned.get(signature)
+        if outline is None and self._cache is not None:
+            outline = self._cache.load_outline(signature)
+            if outline is not None:
+                self._outlines[signature] = outline
+        return outline
+
+    def link(self) -> None:
+        """Link every step that is next in order and has its outline (the tracking work)."""
+        while self._position < len(self._order) and self._order[self._position] in self._waiting:
+            result = self._waiting[self._order[self._position]]
+            if self.tracking and result.skipped is None:
+                if self._dimension is None:
+                    self._dimension = result.dimension
+                if not (result.dimension and self._dimension and result.dimension != self._dimension):
+                    outline = self._outline(result.outline.signature)
+                    if outline is None:
+                        return  # linked when the outline arrives
+                    self.tracker.add_cells(result.index, result.time, outline, result.droplets,
+                                           result.label_cells, result.label_values, result.label_weights)
+                    self._last = outline
+            del self._waiting[self._order[self._position]]
+            self._position += 1
+        needed = {r.outline.signature for r in self._waiting.values() if r.outline is not None}
+        for signature in [s for s in self._outlines if s not in needed]:
+            del self._outlines[signature]
+
+    def tables(self):
+        """``(droplets, events)`` of the tracked steps.
+
+        Raises
+        ------
+        AnalysisError
+            A step is still waiting (for an earlier step, or for its mesh outline).
+        """
+        import pandas as pd
+
+        from ..analysis.tracking import EVENT_COLUMNS
+
+        self.link()
+        if not self.complete:
+            index = self._order[self._position]
+            raise AnalysisError(f"droplet tracking stopped at step {index}: "
+                                + ("its result" if index not in self._waiting else "its mesh outline")
+                                + " never arrived", fix="rerun with --debug and report it")
+        if not self.tracking:
+            return pd.DataFrame(), pd.DataFrame(columns=list(EVENT_COLUMNS))
+        return self.tracker.result()
+
+
+# ------------------------------------------------------------------ the series level
+def _no_step_error(results: list) -> PhasegaugeError:
+    """The error of a run where no step could be analysed: the first step's, with the count."""
+    errors = [r.error for r in results if r.error is not None]
+    if not errors:
+        return InputError("no step could be analysed", where=results[0].path if results else "",
+                          fix="check the input with 'phasegauge inspect'")
+    first = errors[0]
+    if len(results) == 1:
+        return first
+    what = f"{first.what} (no step could be analysed: all {len(results)} failed; this is the first)"
+    return type(first)(what, where=first.where, fix=first.fix)
+
+
+def _mesh_change_records(series, done) -> list:
+    """A series note when the mesh changes between analysed steps."""
+    changes = [b.index for a, b in zip(done[:-1], done[1:]) if a.mesh_signature != b.mesh_signature]
+    if not changes:
+        return []
+    count = len({r.mesh_signature for r in done})
+    at = ", ".join(str(i) for i in changes[:5]) + (" ..." if len(changes) > 5 else "")
+    return [(SeriesWarning, f"the mesh changes between steps (at step {at}; {count} meshes): phase-volume drift "
+                            "across a change includes any remapping of the solution", os.fspath(series.path))]
+
+
+def assemble(series, results: list, options, *, notes=(), feed: TrackingFeed | None = None, mesh_pool=None):
+    """Series-level work over the ordered step results: tables, tracking, drift, audit, findings.
+
+    Steps whose mesh dimension differs from the first analysed step's are
+    skipped (with ``strict``: refused). Warnings of the steps and of the series
+    (``notes``: (category, what, where) records) are reported once per kind.
+    ``feed`` is the run's :class:`TrackingFeed` (a new one takes ``results``
+    otherwise); ``mesh_pool`` the pool the run kept its meshes in (the last
+    step's mesh is handed on for drawing when it is there, else its outline).
+
+    Returns
+    -------
+    MeasureResult
+    """
+    import pandas as pd
+
+    from ..analysis import conservation
+    from ..analysis.tracking import EVENT_COLUMNS
+    from .measure import MeasureResult
+
+    done = [r for r in results if r.skipped is None]
+    if not done:
+        raise _no_step_error(results)
+    for r in done[1:]:
+        if r.dimension and done[0].dimension and r.dimension != done[0].dimension:
+            info = series.steps[r.index]
+            err = SeriesError(f"the mesh is {r.dimension}D but at step {done[0].index} it is {done[0].dimension}D",
+                              where=info.where, fix="a series keeps one dimension: give each case's steps apart")
+            if options.strict:
+                raise err
+            r.skipped, r.error, r.warning_records = err.one_line(), err, []
+    done = [r for r in results if r.skipped is None]
+    skipped = [r.skipped for r in results if r.skipped is not None]
+    records = list(notes) + _mesh_change_records(series, done)
+    records += [(SkippedStepWarning, f"step skipped: {r.error.what}; {r.error.fix}", r.error.where)
+                if r.error is not None else (SkippedStepWarning, f"step skipped: {r.skipped}", "")
+                for r in results if r.skipped is not None]
+    records += [rec for r in done for rec in r.warning_records]
+    summary = collapse_warnings(records)
+    for category, text in summary:
+        warnings.warn(category(text), stacklevel=2)
+    steps = pd.DataFrame([r.metrics for r in done])
+    if "phase_volume" in steps:
+        steps = conservation.drift_columns(steps)
+    first = [c for c in STEP_COLUMNS if c in steps]
+    steps = steps[first + [c for c in steps.columns if c not in first]]
+    droplets = pd.DataFrame()
+    events = pd.DataFrame(columns=list(EVENT_COLUMNS))
+    if "droplets" in options.analyses:
+        if feed is None:
+            feed = TrackingFeed(options, [r.index for r in results])
+            for r in results:
+                feed.add(r)
+        droplets, events = feed.tables()
+    profiles = pd.concat([r.profile for r in done if r.profile is not None], ignore_index=True) \
+        if any(r.profile is not None for r in done) else pd.DataFrame()
+    audit = {}
+    if "interface" in options.analyses and "interface_variance" in steps:
+        from ..analysis.interface import diffusion_audit
+
+        audit = diffusion_audit(steps["time"].to_numpy(), steps["interface_variance"].to_numpy(),
+                                physical_diffusivity=options.diffusivity)
+    found = findings(steps, droplets, audit, options, skipped) + [
+        Finding("warning", "warning", text, {"category": category.__name__})
+        for category, text in summary if not issubclass(category, SkippedStepWarning)]
+    mesh = None
+    if any(r.contour is not None for r in done):
+        last = done[-1]
+        mesh = (mesh_pool.find(last.mesh_signature) if mesh_pool is not None else None) or last.outline
+    return MeasureResult(steps=steps, droplets=droplets, events=events, profiles=profiles, audit=audit,
+                         flags=[f.text for f in found], skipped=skipped, options=options, results=results,
+                         mesh=mesh, warnings=[text for _, text in summary], findings=found)
+
+
+def findings(steps, droplets, audit: dict, options, skipped: list) -> list:
+    """The findings of the tables (widening interface, drift, overshoot, resolution, skipped steps)."""
+    found = []
+    if audit.get("widening"):
+        d = audit.get("D_num", float("nan"))
+        text = f"interface keeps widening: numerical diffusivity {d:.3g}"
+        ratio = audit.get("D_ratio")
+        if ratio is not None and np.isfinite(audit.get("D_ratio", np.nan)):
+            text += f" ({audit['D_ratio']:.3g} x the physical value)"
+        found.append(Finding("interface_widening", "warning", text,
+                             {"numerical_diffusivity": _number(d), "diffusivity_ratio": _number(ratio)}))
+    open_domain = "open_boundary" in steps and bool(steps["open_boundary"].astype(bool).any())
+    if "phase_volume_drift" in steps:
+        worst = float(np.nanmax(np.abs(steps["phase_volume_drift"].to_numpy()))) if len(steps) else 0.0
+        if worst > options.drift_tolerance:
+            text = (f"phase volume drifts by up to {100 * worst:.3g} % (tolerance "
+                    f"{100 * options.drift_tolerance:.3g} %)")
+            figures = {"largest_drift": worst, "tolerance": options.drift_tolerance}
+            if open_domain and "phase_volume_drift_closed" in steps:
+                closed = float(np.nanmax(np.abs(steps["phase_volume_drift_closed"].to_numpy())))
+                text += (f"; the domain has open boundaries, so this includes what crossed them: "
+                         f"{100 * closed:.3g} % is left after adding the outflow back")
+                figures["largest_drift_closed"] = closed
+            found.append(Finding("phase_volume_drift", "warning", text, figures))
+    if open_domain:
+        found.append(Finding("open_boundary", "note",
+                             "the domain has inflow or outflow boundaries: phase-volume drift includes what crossed "
+                             "them (phase_volume_drift_closed adds it back)"))
+    if "overshoot_volume" in steps:
+        worst = float(np.nanmax(steps["overshoot_volume"].to_numpy()))
+        if worst > 0:
+            c_min, c_max = float(np.nanmin(steps["c_min"])), float(np.nanmax(steps["c_max"]))
+            found.append(Finding("indicator_overshoot", "warning",
+                                 f"indicator leaves [0, 1]: overshoot volume up to {worst:.3g} "
+                                 f"(c from {c_min:.4g} to {c_max:.4g})",
+                                 {"overshoot_volume": worst, "c_min": c_min, "c_max": c_max}))
+    if "under_resolved_interface_fraction" in steps:
+        worst = float(np.nanmax(steps["under_resolved_interface_fraction"].to_numpy()))
+        if worst > 0.1:
+            found.append(Finding("interface_under_resolved", "warning",
+                                 f"interface under-resolved: up to {100 * worst:.3g} % of it has fewer than 4 cells "
+                                 "across 0.1 < c < 0.9 (common practice)", {"fraction": worst, "threshold": 0.1}))
+    if len(droplets) and "under_resolved" in droplets:
+        n = int(droplets["under_resolved"].sum())
+        if n:
+            found.append(Finding("droplets_under_resolved", "warning",
+                                 f"{n} droplet observations are smaller than 2 cells in radius; their counts are "
+                                 "unreliable (Hendrickson, Weymouth & Yue 2020)", {"observations": n}))
+    if skipped:
+        found.append(Finding("steps_skipped", "warning", f"{len(skipped)} step(s) skipped: " + "; ".join(skipped[:3]),
+                             {"count": len(skipped)}))
+    return found
+
+
+def _number(value):
+    """A float for the figures (None when missing or not finite)."""
+    try:
+        value = float(value)
+    except (TypeError, ValueError):
+        return None
+    return value if np.isfinite(value) else None

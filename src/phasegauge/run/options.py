@@ -1,0 +1,167 @@
+"""What a measure run computes: the options (checked once, before any step) and the analyses.
+
+:class:`MeasureOptions` holds everything that changes the numbers; its
+:meth:`~MeasureOptions.key` digests them for the resume cache and the output
+folder's marker.
+"""
+
+from __future__ import annotations
+
+import dataclasses
+import hashlib
+import json
+from dataclasses import dataclass
+
+from ..errors import FieldNotFoundError, FieldShapeError, OptionError
+from ..model.axes import AXIS_INDEX
+from ..model.indicator import normalize_phase, parse_range
+
+__all__ = ["MeasureOptions", "ANALYSES", "STEP_COLUMNS", "check_workers", "wrong_field_option"]
+
+#: the analyses ``measure`` can run
+ANALYSES = ("interface", "droplets", "mixing", "conservation")
+
+#: the leading columns of steps.csv, in order (more follow; see the README)
+STEP_COLUMNS = ("step", "time", "phase_volume", "phase_volume_drift", "phase_volume_drift_abs",
+                "interface_size", "interface_width", "interface_width_cells", "droplet_count",
+                "segregation_intensity", "mixing_index", "c_min", "c_max", "overshoot_volume")
+
+
+@dataclass(frozen=True)
+class MeasureOptions:
+    """What to measure and how (everything that changes the numbers).
+
+    Parameters
+    ----------
+    field : str
+        Field mapped to the phase indicator.
+    value_range : tuple of float
+        Field values mapped to c = 0 and c = 1.
+    phase : {'upper', 'lower'}
+        Which side of the range is the measured phase.
+    level : float
+        Indicator level of the interface and of droplet labelling, in (0, 1).
+    velocity : str or None
+        Velocity field (for droplet velocities, prediction in tracking and
+        flow-weighted cross sections).
+    analyses : tuple of str
+        Subset of :data:`ANALYSES`.
+    connectivity : {'face', 'point'}
+        Cell adjacency for droplet labelling.
+    periodic : tuple of str
+        Periodic axes (``'x'``, ``'y'``, ``'z'``) for droplet labelling.
+    ignore_remerge_within : int
+        A breakup that merges again within this many steps is not an event.
+    densities : tuple of float or None
+        Densities of the measured phase and the other phase, for masses.
+    diffusivity : float or None
+        Physical diffusivity or mobility to compare the numerical one with.
+    box : tuple or None
+        ``((xmin, xmax), (ymin, ymax), (zmin, zmax))`` region for mixing figures.
+    section_axis : str or None
+        Axis of the cross-section profiles (``'x'``...); None for none.
+    section_count : int
+        Number of planes when ``section_positions`` is not given.
+    section_positions : tuple of float or None
+    mixing_target : float
+        Mixing index that defines the mixing length.
+    segregation_scale : bool
+        Also compute Danckwerts' scale of segregation (from the autocorrelation
+        on a regular resampling; costs an FFT of the domain per step).
+    drift_tolerance : float
+        Relative phase-volume drift that raises a flag in the report.
+    strict : bool
+        Fail on a bad step instead of skipping it.
+    """
+
+    field: str
+    value_range: tuple = (0.0, 1.0)
+    phase: str = "upper"
+    level: float = 0.5
+    velocity: str | None = None
+    analyses: tuple = ANALYSES
+    connectivity: str = "face"
+    periodic: tuple = ()
+    ignore_remerge_within: int = 0
+    densities: tuple | None = None
+    diffusivity: float | None = None
+    box: tuple | None = None
+    section_axis: str | None = None
+    section_count: int = 20
+    section_positions: tuple | None = None
+    mixing_target: float = 0.9
+    segregation_scale: bool = False
+    drift_tolerance: float = 1e-3
+    strict: bool = False
+
+    def __post_init__(self):
+        set_ = object.__setattr__
+        if not isinstance(self.field, str) or not self.field:
+            raise OptionError("a field name is needed", fix="give --field NAME (see 'phasegauge inspect')")
+        set_(self, "value_range", parse_range(self.value_range))
+        set_(self, "phase", normalize_phase(self.phase))
+        level = float(self.level)
+        if not 0.0 < level < 1.0:
+            raise OptionError(f"level must lie strictly between 0 and 1, found {level}",
+                              fix="the interface is usually at --level 0.5")
+        set_(self, "level", level)
+        analyses = tuple(self.analyses)
+        unknown = [a for a in analyses if a not in ANALYSES]
+        if unknown or not analyses:
+            raise OptionError(f"unknown analyses {unknown}" if unknown else "no analysis chosen",
+                              fix="choose from " + ", ".join(ANALYSES))
+        set_(self, "analyses", tuple(a for a in ANALYSES if a in analyses))
+        if self.connectivity not in ("face", "point"):
+            raise OptionError(f"connectivity must be 'face' or 'point', found {self.connectivity!r}",
+                              fix="'face' keeps droplets that touch at a corner apart")
+        periodic = tuple(str(a).lower() for a in (self.periodic or ()))
+        if any(a not in AXIS_INDEX for a in periodic):
+            raise OptionError(f"periodic axes must be among x, y, z, found {periodic}", fix="for example x,y")
+        set_(self, "periodic", periodic)
+        if self.section_axis is not None and str(self.section_axis).lower() not in AXIS_INDEX:
+            raise OptionError(f"section axis must be x, y or z, found {self.section_axis!r}",
+                              fix="for a channel along x: x")
+        if self.section_axis is not None:
+            set_(self, "section_axis", str(self.section_axis).lower())
+        if int(self.section_count) < 1:
+            raise OptionError("section count must be at least 1", fix="for example 20")
+        if self.section_positions is not None:
+            set_(self, "section_positions", tuple(float(p) for p in self.section_positions))
+        if self.densities is not None:
+            dens = tuple(float(d) for d in self.densities)
+            if len(dens) != 2 or min(dens) < 0:
+                raise OptionError(f"densities must be two non-negative numbers, found {self.densities}",
+                                  fix="give the measured phase's density then the other's")
+            set_(self, "densities", dens)
+        if self.diffusivity is not None and not float(self.diffusivity) >= 0:
+            raise OptionError(f"diffusivity must be non-negative, found {self.diffusivity}",
+                              fix="give the physical diffusivity or mobility in length^2/time")
+        if not 0.0 < float(self.mixing_target) <= 1.0:
+            raise OptionError("mixing target must lie in (0, 1]", fix="0.9 is common practice")
+        if self.box is not None:
+            box = tuple(tuple(float(v) for v in pair) for pair in self.box)
+            if any(len(p) != 2 or p[0] >= p[1] for p in box):
+                raise OptionError(f"box must be (lo, hi) pairs per axis, found {self.box}",
+                                  fix="for example ((0, 1), (0, 0.5), (-1, 1))")
+            set_(self, "box", box)
+
+    def key(self) -> str:
+        """Digest of every option that changes the numbers."""
+        text = json.dumps(dataclasses.asdict(self), sort_keys=True, default=str)
+        return hashlib.sha256(text.encode()).hexdigest()[:16]
+
+
+def check_workers(workers) -> int:
+    """The number of local worker processes, checked (at least 1)."""
+    workers = int(workers)
+    if workers < 1:
+        raise OptionError(f"workers must be at least 1, found {workers}", fix="for example --workers 2")
+    return workers
+
+
+def wrong_field_option(err) -> bool:
+    """True for an error that says the chosen field itself is wrong (not this step's file).
+
+    Such an error at the first step stops the run, skipped steps or not.
+    """
+    return isinstance(err, FieldNotFoundError) or (isinstance(err, FieldShapeError) and "component" in err.what)

@@ -1,0 +1,350 @@
+"""One step: read it, run every chosen analysis on it, hand back a small result.
+
+:func:`analyse_step` runs the analyses on a step already read into the model.
+:class:`StepRunner` is the unit of parallel work: it holds one series open (its
+files stay open between steps, its meshes are kept in a :class:`MeshPool`) and
+turns a step index into a :class:`StepResult` of scalars and small tables,
+taking it from the resume cache when it can. Workers receive a runner and step
+indices, never arrays.
+"""
+
+from __future__ import annotations
+
+import os
+import time
+import warnings
+from dataclasses import dataclass, field
+
+import numpy as np
+
+from ..errors import (AnalysisError, FieldNotFoundError, InputError, InputFileNotFound, MeshWarning,
+                      PhasegaugeError, PhasegaugeWarning, UnsupportedMeshError, short_text)
+from ..model.fields import vector_field
+from ..model.indicator import make_indicator
+from ..model.outline import MeshOutline
+
+__all__ = ["StepResult", "StepRunner", "analyse_step", "run_step", "STEP_ERRORS"]
+
+#: errors of one step's input: the step is skipped with a warning (or, with ``strict``, the run stops)
+STEP_ERRORS = (InputError, FieldNotFoundError, InputFileNotFound)
+
+
+@dataclass
+class StepResult:
+    """What one step's analyses return to the run (small, picklable).
+
+    ``outline`` carries what series-level work needs of the step's mesh (its
+    identity, extent and, in a run with droplets, the cell centroids while the
+    step waits to be tracked); ``label_cells``, ``label_values`` and
+    ``label_weights`` are the labelled cells of the droplet analysis.
+    """
+
+    index: int
+    time: float
+    path: str
+    metrics: dict = field(default_factory=dict)
+    droplets: object = None  # DataFrame or None
+    label_cells: np.ndarray | None = None
+    label_values: np.ndarray | None = None
+    label_weights: np.ndarray | None = None
+    profile: object = None  # DataFrame or None
+    contour: object = None  # Contour of the step (kept for snapshots)
+    mesh_signature: str = ""
+    messages: list = field(default_factory=list)
+    skipped: str | None = None
+    seconds: float = 0.0
+    file_sha256: str = ""
+    reused: bool = False
+    error: PhasegaugeError | None = None  # why the step was skipped
+    warning_records: list = field(default_factory=list)  # (category, what, where) of the step's warnings
+    dimension: int = 0
+    outline: MeshOutline | None = None
+
+    def labels(self, n_cells: int) -> tuple[np.ndarray, np.ndarray]:
+        """Droplet label of every cell (-1: none) and the c dV weights of the labelled cells."""
+        out = np.full(n_cells, -1, dtype=np.int32)
+        weights = np.zeros(n_cells)
+        if self.label_cells is not None:
+            out[self.label_cells] = self.label_values
+            weights[self.label_cells] = self.label_weights
+        return out, weights
+
+
+# ------------------------------------------------------------------ the analyses of one step
+def check_mesh(mesh, where: str, *, reported: set | None = None) -> None:
+    """Refuse a mesh without volume; warn about inverted and zero-size cells.
+
+    With ``reported`` (signatures of meshes already warned about, updated here),
+    each mesh is warned about once.
+    """
+    total = mesh.total_measure
+    word = "area" if mesh.dimension == 2 else "volume"
+    if not np.isfinite(total) or total <= 0:
+        raise UnsupportedMeshError(f"the cells have no {word} (total {total:g}): the points coincide or are not "
+                                   "finite", where=where, fix="the file is damaged or the mesh collapsed; "
+                                   "write the step again")
+    if reported is not None:
+        if mesh.signature in reported:
+            return
+        reported.add(mesh.signature)
+    inverted, degenerate = mesh.inverted_cells, mesh.degenerate_cells
+    if inverted:
+        warnings.warn(MeshWarning(f"{_cells(inverted)} inverted (corners in the opposite order to the rest); "
+                                  f"the magnitude of their {word} is used", where=where), stacklevel=3)
+    if degenerate:
+        text = (f"1 cell has zero {word}; it carries" if degenerate == 1 else
+                f"{degenerate} cells have zero {word}; they carry")
+        warnings.warn(MeshWarning(f"{text} no phase volume", where=where), stacklevel=3)
+
+
+def _cells(count: int) -> str:
+    return "1 cell is" if count == 1 else f"{count} cells are"
+
+
+def step_velocity(step, options):
+    """Velocity of the step on cells and on points, or (None, None).
+
+    Each side is converted only when an analysis of the run uses it: droplets use cell values,
+    the boundary flux and cross sections point values.
+    """
+    if options.velocity is None:
+        return None, None
+    values, location = vector_field(step.fields, options.velocity, where=step.info.where,
+                                    fix="name the velocity field with --velocity, or leave it out")
+    mesh = step.mesh
+    need_points = "conservation" in options.analyses or (
+        "mixing" in options.analyses and options.section_axis is not None)
+    if location == "cell":
+        return values, (mesh.cell_to_point(values) if need_points else None)
+    return (mesh.point_to_cell(values) if "droplets" in options.analyses else None), values
+
+
+def analyse_step(step, options, *, contour_dir: str | None = None, reported_meshes: set | None = None) -> StepResult:
+    """Run the chosen analyses on one step read into the model (pure apart from contour files).
+
+    Parameters
+    ----------
+    step : Step
+    options : MeasureOptions
+    contour_dir : str, optional
+        Folder to write the step's interface into (``interface_NNNNNN.vtu``).
+    reported_meshes : set of str, optional
+        Signatures of meshes whose quality was already warned about (updated).
+    """
+    from ..analysis import conservation, droplets as droplets_mod, interface, mixing
+
+    mesh = step.mesh
+    ind = make_indicator(mesh, step.fields, options.field, value_range=options.value_range,
+                         phase=options.phase, where=step.info.where)
+    if ind.nonfinite == ind.cell.size or not np.isfinite(ind.cell).any():
+        raise InputError(f"field '{options.field}' has no finite values (all NaN or Inf)", where=step.info.where,
+                         fix="the solver may have diverged at this step")
+    check_mesh(mesh, step.info.where, reported=reported_meshes)
+    u_cell, u_point = step_velocity(step, options)
+    result = StepResult(step.index, step.time, step.info.path, mesh_signature=mesh.signature,
+                        dimension=int(mesh.dimension),
+                        outline=MeshOutline.of(mesh, centroids="droplets" in options.analyses))
+    m = {"step": step.index, "time": step.time}
+    if "conservation" in options.analyses:
+        m.update(conservation.conservation_metrics(mesh, ind, densities=options.densities))
+        m.update(conservation.boundedness(mesh, ind))
+        if u_point is not None:
+            flux = conservation.open_boundary_flux(mesh, u_point, ind, velocity_location="point")
+            m.update({k: v for k, v in flux.items() if k != "open_boundary"})
+            m["open_boundary"] = bool(flux["open_boundary"])
+    contour = None
+    if "interface" in options.analyses or "droplets" in options.analyses:
+        contour = interface.find_interface(mesh, ind.point, level=options.level)
+    if "interface" in options.analyses:
+        m.update(interface.interface_metrics(mesh, ind, level=options.level, contour=contour))
+        if contour_dir is not None:
+            from ..io import write_contour
+
+            write_contour(contour, os.path.join(contour_dir, f"interface_{step.index:06d}.vtu"))
+    if "droplets" in options.analyses:
+        found = droplets_mod.label_droplets(
+            mesh, ind.cell, level=options.level, connectivity=options.connectivity, periodic=tuple(options.periodic),
+            velocity=u_cell, interface_cells=contour.cells, interface_sizes=contour.element_sizes)
+        table = found.table
+        m["droplet_count"] = int(found.count)
+        m["under_resolved_droplets"] = int(table["under_resolved"].sum()) if len(table) else 0
+        labelled = np.flatnonzero(found.labels >= 0)
+        result.label_cells = labelled.astype(np.int32 if mesh.n_cells < 2 ** 31 else np.int64)  # half the bytes
+        result.label_values = found.labels[labelled].astype(np.int32)
+        result.label_weights = np.asarray(found.weights)[labelled]
+        result.droplets = table
+    if "mixing" in options.analyses:
+        m.update(mixing.mixing_metrics(mesh, ind.cell, box=options.box))
+        if options.segregation_scale:
+            m["segregation_scale"] = mixing.segregation_scale(mesh, ind.cell)
+        if options.section_axis is not None:
+            profile = mixing.cross_sections(mesh, ind, axis=options.section_axis,
+                                            positions=options.section_positions,
+                                            count=options.section_count, velocity=u_point)
+            weighting = "flow" if u_point is not None else "area"
+            m["mixing_length"] = mixing.mixing_length(profile, target=options.mixing_target,
+                                                      weighting=weighting)
+            profile.insert(0, "time", step.time)
+            profile.insert(0, "step", step.index)
+            result.profile = profile
+    m["nonfinite_values"] = int(ind.nonfinite)
+    result.metrics = m
+    result.contour = contour
+    return result
+
+
+# ------------------------------------------------------------------ the unit of parallel work
+class StepRunner:
+    """Runs steps of one series: ``runner.run(index)`` is the unit of parallel work.
+
+    Parameters
+    ----------
+    path : str or os.PathLike
+        The series.
+    options : MeasureOptions
+    cache : StepCache, optional
+        Where finished steps are kept (and found on resume).
+    contour_dir : str, optional
+        Folder for each step's interface file.
+    keep : collection of int
+        Steps whose contour stays in the result (the report's snapshots).
+    mesh_pool : MeshPool, optional
+        Where the series keeps its meshes (give one to reuse meshes an earlier run built).
+    series : Series, optional
+        The series already open at ``path`` (saves discovering it again).
+
+    Notes
+    -----
+    Picklable: a runner sent to another process takes its path, options,
+    cache and an empty mesh pool, and opens the series there on its first step.
+    A forked process inherits the open series and the kept meshes as they are.
+    """
+
+    def __init__(self, path, options, *, cache=None, contour_dir: str | None = None, keep=(),
+                 mesh_pool=None, series=None):
+        from ..io import MeshPool
+
+        self.path = os.fspath(path)
+        self.options = options
+        self.cache = cache
+        self.contour_dir = contour_dir
+        self.keep = frozenset(int(i) for i in keep)
+        self.mesh_pool = series.mesh_pool if series is not None else (mesh_pool or MeshPool())
+        self._series = series
+        self._reported: set = set()  # meshes whose quality this runner has warned about
+
+    def __getstate__(self):
+        state = self.__dict__.copy()
+        state["_series"] = None
+        state["_reported"] = set()
+        return state
+
+    @property
+    def tracking(self) -> bool:
+        """True when the run tracks droplets (so the steps' cell centroids are needed afterwards)."""
+        return "droplets" in self.options.analyses
+
+    def series(self):
+        """The open series (opened on first use; its own warnings are reported once, by the run)."""
+        if self._series is None:
+            from ..io import Series
+
+            with warnings.catch_warnings():
+                warnings.simplefilter("ignore", PhasegaugeWarning)
+                self._series = Series(self.path, mesh_pool=self.mesh_pool)
+        return self._series
+
+    def close(self) -> None:
+        """Close the series' files (the kept meshes stay in the pool)."""
+        if self._series is not None:
+            self._series.close()
+
+    def outline(self, signature: str) -> MeshOutline | None:
+        """The outline with centroids of a mesh this runner holds or the cache keeps, or None."""
+        mesh = self.mesh_pool.find(signature)
+        if mesh is not None:
+            return MeshOutline.of(mesh, centroids=True)
+        return None if self.cache is None else self.cache.load_outline(signature)
+
+    def run(self, index: int) -> StepResult:
+        """Read step ``index`` and run every analysis on it (or take it from the cache).
+
+        A step whose input is bad (:data:`STEP_ERRORS`) returns a result with
+        ``skipped`` and ``error`` set, unless ``options.strict``; a failure inside
+        the tool raises :class:`AnalysisError` naming the step.
+        """
+        series = self.series()
+        info = series.steps[index]
+        keep_contour = index in self.keep
+        entry = None if self.cache is None else self.cache.entry(info)  # None: no file to key it by
+        if entry is not None:
+            cached = self.cache.load(entry)
+            if cached is not None and self._complete(cached):
+                if not keep_contour:
+                    cached.contour = None
+                return cached
+        start = time.perf_counter()
+        with warnings.catch_warnings(record=True) as caught:
+            warnings.simplefilter("always")
+            try:
+                step = series.read(index)
+                result = analyse_step(step, self.options, contour_dir=self.contour_dir,
+                                      reported_meshes=self._reported)
+            except STEP_ERRORS as err:
+                err = err.at(info.where)
+                if self.options.strict:
+                    raise err from None
+                result = StepResult(index, info.time, info.path, skipped=err.one_line(), error=err)
+            except PhasegaugeError:
+                raise
+            except Exception as exc:  # a failure inside the tool: name the step, keep the cause for --debug
+                raise AnalysisError(f"{type(exc).__name__}: {short_text(exc, 160)}", where=info.where,
+                                    fix="rerun with --debug for the traceback and report it") from exc
+        if result.skipped is None:  # a skipped step's warnings are about what made it fail
+            result.warning_records = [(w.category, getattr(w.message, "what", str(w.message)), info.where)
+                                      for w in caught if issubclass(w.category, PhasegaugeWarning)]
+        result.messages = [f"{where}: {what}" for _, what, where in result.warning_records]
+        result.seconds = time.perf_counter() - start
+        result.file_sha256 = entry.file_sha256 if entry is not None else ""
+        if entry is not None and result.skipped is None:  # a bad step is tried again on resume
+            outline = result.outline
+            if self.tracking and outline is not None and not self.cache.has_outline(outline.signature):
+                self.cache.store_outline(outline)
+            self.cache.store(entry, result)
+        if not keep_contour:
+            result.contour = None
+        return result
+
+    def _complete(self, cached: StepResult) -> bool:
+        """True when a cached result can stand for the step: with droplets, its mesh outline is kept too.
+
+        The outline gets its centroids back when this runner holds the mesh.
+        """
+        if not self.tracking:
+            return True
+        if cached.outline is None:
+            return False
+        signature = cached.outline.signature
+        mesh = self.mesh_pool.find(signature)
+        if mesh is not None:
+            cached.outline = MeshOutline.of(mesh, centroids=True)
+            return True
+        return self.cache.has_outline(signature)
+
+
+def run_step(path, index: int, options, *, cache_dir: str | None = None, contour_dir: str | None = None,
+             keep_contour: bool = False) -> StepResult:
+    """Read step ``index`` of the series at ``path`` and run every analysis on it (one step on its own).
+
+    With ``cache_dir``, a result cached for the same file content and options is
+    returned without recomputing, and a new result is cached atomically. A run
+    of many steps uses one :class:`StepRunner` instead (it keeps the series open).
+    """
+    from .cache import StepCache
+
+    cache = None if cache_dir is None else StepCache(cache_dir, options.key())
+    runner = StepRunner(path, options, cache=cache, contour_dir=contour_dir, keep=(index,) if keep_contour else ())
+    try:
+        return runner.run(index)
+    finally:
+        runner.close()
