@@ -34,16 +34,18 @@ def _best(job, repeat: int) -> tuple[float, object]:
 
 def _parts(job) -> dict:
     """Cumulative seconds of the main parts of interface_metrics in one profiled run of ``job``."""
-    from phasegauge.analysis import _interface_width as width
+    from phasegauge.analysis import _profile_fits, _signed_distance, _width_integrals as integrals
+    from phasegauge.model import corners, simplices
 
-    parts = {"integrals (split path)": width._SplitBand.__init__,
-             "integrals (grid path)": width._GridBand.__init__,
-             "signed distances": width._signed_distance,
-             "  of which k-d tree queries": width._nearest_plane_distance,
-             "second moment (split path)": width._SplitBand.moments,
-             "second moment (grid path)": width._GridBand.moments,
-             "profile fits": width._profile_table,
-             "cell gradients": width.cell_gradient}
+    parts = {"integrals (split path)": integrals._SplitBand.__init__,
+             "  of which the simplex split": simplices.split_cells,
+             "integrals (grid path)": integrals._GridBand.__init__,
+             "signed distances": _signed_distance._signed_distance,
+             "  of which k-d tree queries": _signed_distance._nearest_plane_distance,
+             "second moment (split path)": integrals._SplitBand.moments,
+             "second moment (grid path)": integrals._GridBand.moments,
+             "profile fits": _profile_fits._profile_table,
+             "cell gradients": corners.cell_gradient}
     profile = cProfile.Profile()
     profile.enable()
     job()
@@ -72,14 +74,14 @@ def run(kind: str, n: int, repeat: int) -> None:
     grid = pyvista.from_meshio(to_meshio(mesh, point_data={"c": c}))
 
     def contour_and_width():
-        contour = find_interface(mesh, c)
-        return contour, interface_metrics(mesh, c, contour=contour)
+        contour, extremes = find_interface(mesh, c, return_extremes=True)
+        return contour, interface_metrics(mesh, c, contour=contour, extremes=extremes)
 
     start = time.perf_counter()
     contour_and_width()
     cold = time.perf_counter() - start
-    t_find, contour = _best(lambda: find_interface(mesh, c), repeat)
-    t_metrics, metrics = _best(lambda: interface_metrics(mesh, c, contour=contour), repeat)
+    t_find, (contour, extremes) = _best(lambda: find_interface(mesh, c, return_extremes=True), repeat)
+    t_metrics, metrics = _best(lambda: interface_metrics(mesh, c, contour=contour, extremes=extremes), repeat)
     t_both, _ = _best(contour_and_width, repeat)
     t_vtk, surface = _best(lambda: grid.contour([0.5], scalars="c"), repeat)
     vtk_area = float(surface.compute_cell_sizes(length=False, volume=False).cell_data["Area"].sum())
@@ -94,7 +96,7 @@ def run(kind: str, n: int, repeat: int) -> None:
     print(f"  exact sphere area {4 * np.pi * 0.09:.6f}; interface_width {metrics['interface_width']:.5f} "
           f"(5.889 eps = {2 * np.log(19) * eps:.5f})")
     print("  parts of interface_metrics (one profiled run, cumulative s):")
-    for label, seconds in _parts(lambda: interface_metrics(mesh, c, contour=contour)).items():
+    for label, seconds in _parts(lambda: interface_metrics(mesh, c, contour=contour, extremes=extremes)).items():
         print(f"    {label:34s} {seconds:7.3f}")
 
 

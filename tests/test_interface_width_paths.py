@@ -12,14 +12,15 @@ import numpy as np
 import pytest
 
 import phasegauge.analysis._interface_width as width_module
-from phasegauge.analysis._contour import _recall_extremes, split_cells
-from phasegauge.analysis._interface_width import (_ContourGeometry, _band_volume, _fraction_below,
-                                                  _fraction_of, _grid_tetrahedra,
-                                                  _vertex_distances)
+import phasegauge.analysis._width_integrals as integrals_module
+from phasegauge.analysis._signed_distance import _ContourGeometry, _vertex_distances
+from phasegauge.analysis._width_integrals import _band_volume, _fraction_below, _fraction_of, _grid_tetrahedra
 from phasegauge.analysis.interface import (METRIC_KEYS, find_interface, interface_metrics,
                                            interface_profile_table)
+from phasegauge.errors import OptionError
 from phasegauge.model._grouping import sort_columns
 from phasegauge.model.mesh import Mesh
+from phasegauge.model.simplices import split_cells
 from phasegauge.meshgen import grid_mesh
 
 RTOL = 1e-12
@@ -100,7 +101,7 @@ def test_simplex_meshes_skip_the_split(monkeypatch, kind, jitter):
     mesh = grid_mesh(shape, kind=kind, jitter=jitter, seed=2)
     c = _sphere(mesh)
     direct = interface_metrics(mesh, c)
-    monkeypatch.setattr(width_module, "_DIRECT_TYPES", ())
+    monkeypatch.setattr(integrals_module, "_DIRECT_TYPES", ())
     _same_metrics(direct, interface_metrics(mesh, c))
 
 
@@ -113,7 +114,7 @@ def _reference(mesh, c_point, level=0.5):
     lo = np.concatenate([clipped[b.connectivity].min(axis=1) for b in mesh.blocks])
     hi = np.concatenate([clipped[b.connectivity].max(axis=1) for b in mesh.blocks])
     active = np.isfinite(lo) & np.isfinite(hi) & (hi > 1e-6) & (lo < 1 - 1e-6)
-    split = split_cells(mesh, clipped, active)
+    split = split_cells(mesh, active, values=clipped, quads="centre")
     S = split.simplices
     d = mesh.dimension
     E = split.coordinates[S[:, 1:]] - split.coordinates[S[:, :1]]
@@ -177,18 +178,19 @@ def test_band_volume_matches_the_simplex_formula(corners):
 
 # --------------------------------------------------------------------------- shared extremes
 
-def test_contour_extremes_are_reused_only_for_unchanged_values():
+def test_contour_extremes_are_handed_over_explicitly():
+    # the corner extremes find_interface computed are passed to interface_metrics (no hidden state):
+    # the same metrics as when interface_metrics computes them itself; extremes that do not fit the
+    # mesh are refused
     mesh = grid_mesh((8, 8, 8), kind="tetra")
     c = _sphere(mesh)
-    fresh = interface_metrics(mesh, c.copy(), contour=find_interface(mesh, c.copy()))
-    contour = find_interface(mesh, c)
-    _same_metrics(interface_metrics(mesh, c, contour=contour), fresh)
-    assert _recall_extremes(mesh, c) is None   # taken by interface_metrics
-    # values changed in place after the contour was found: the remembered extremes are stale
-    contour = find_interface(mesh, c)
-    c *= 0.9
-    assert _recall_extremes(mesh, c) is None
-    contour = find_interface(mesh, c)
-    c[:] = _sphere(mesh, 2.0)
-    _same_metrics(interface_metrics(mesh, c, contour=contour),
+    contour, extremes = find_interface(mesh, c, return_extremes=True)
+    assert extremes.low.shape == extremes.high.shape == (mesh.n_cells,)
+    _same_metrics(interface_metrics(mesh, c, contour=contour, extremes=extremes),
                   interface_metrics(mesh, c.copy(), contour=contour))
+    assert find_interface(mesh, c, return_extremes=False).n_elements == contour.n_elements
+    with pytest.raises(OptionError, match="extremes must be the per-cell corner minima"):
+        interface_metrics(mesh, c, contour=contour, extremes=(extremes.low[1:], extremes.high[1:]))
+    # the grid path computes none
+    grid = grid_mesh((8, 8, 8), kind="hexahedron")
+    assert find_interface(grid, _sphere(grid), return_extremes=True)[1] is None

@@ -324,7 +324,7 @@ def test_regular_grid_refused_for_sheared_or_incomplete_grids():
 
 # ------------------------------------------------------------------ flat faces
 def test_flat_faces_columnwise_matches_the_vector_formula():
-    from phasegauge.analysis import _simplices
+    from phasegauge.model import simplices
 
     m = grid_mesh((4, 4, 3), kind="hexahedron")
     moved = np.zeros(m.n_points, dtype=bool)
@@ -332,25 +332,31 @@ def test_flat_faces_columnwise_matches_the_vector_formula():
     bent = _bend(m, 1e-6, seed=4)
     m = Mesh(np.where(moved[:, None], bent.points, m.points), [("hexahedron", m.blocks[0].connectivity)])
     X = m.coordinates[m.blocks[0].connectivity]
-    flat = _simplices._flat_cells(m)[0]
+    columns = [np.ascontiguousarray(m.coordinates[:, i]) for i in range(3)]
+    flat = simplices._flat_faces("hexahedron", [[x[m.blocks[0].connectivity[:, j]] for x in columns]
+                                                for j in range(8)])
     # the same test written with np.cross and a dot product, face by face
-    expected = np.ones(m.n_cells, dtype=bool)
-    for face in cells.FACES["hexahedron"]:
+    expected = np.ones((m.n_cells, 6), dtype=bool)
+    for q, face in enumerate(cells.FACES["hexahedron"]):
         P = X[:, list(face)]
         e1, e2, e3 = P[:, 1] - P[:, 0], P[:, 2] - P[:, 0], P[:, 3] - P[:, 0]
         volume = np.abs(np.einsum("nd,nd->n", e1, np.cross(e2, e3)))
-        expected &= volume <= _simplices._FLAT * np.einsum("nd,nd->n", e2, e2) ** 1.5
+        expected[:, q] = volume <= simplices._FLAT * np.einsum("nd,nd->n", e2, e2) ** 1.5
     assert np.array_equal(flat, expected)
-    assert np.array_equal(_simplices._flat_faces("hexahedron", X), expected)
+    assert np.array_equal(simplices._flat_faces("hexahedron", X), expected)
     assert flat.any() and not flat.all()
 
 
-@pytest.mark.parametrize("kind, jitter, expected", [("hexahedron", 0.0, True), ("wedge", 0.0, True),
-                                                    ("hexahedron", 0.2, False), ("mixed", 0.0, False)])
-def test_few_simplex_cells(kind, jitter, expected):
-    from phasegauge.analysis import _contour
+@pytest.mark.parametrize("kind, jitter, coned", [("hexahedron", 0.0, "none"), ("wedge", 0.0, "some"),
+                                                 ("wedge", 0.2, "all"), ("hexahedron", 0.2, "all"),
+                                                 ("mixed", 0.0, "some")])
+def test_cells_are_coned_only_where_a_face_needs_a_centre(kind, jitter, coned):
+    # flat faces cut alike from both sides keep the few-simplex tables; bent faces, and faces the
+    # two sides' tables cut along different diagonals, get a centre and cone their cells
+    from phasegauge.model import simplices
 
     m = grid_mesh((3, 3, 3), kind=kind, jitter=jitter)
-    few = _contour._few_simplex_cells(m)
-    flags = np.concatenate([f for f in few if f is not None])
-    assert bool(flags.all()) is expected and bool(flags.any()) is expected
+    plan = simplices._split_plan(m)
+    flags = np.concatenate([np.zeros(len(block), bool) if p is None else p.coned
+                            for block, p in zip(m.blocks, plan)])
+    assert {"none": not flags.any(), "some": flags.any() and not flags.all(), "all": flags.all()}[coned]

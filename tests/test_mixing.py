@@ -9,7 +9,7 @@ from scipy.spatial import ConvexHull, HalfspaceIntersection
 from phasegauge.errors import OptionError
 from phasegauge.meshgen import grid_mesh
 from phasegauge.analysis import mixing
-from phasegauge.analysis._simplices import clip_simplices, simplex_measures
+from phasegauge.model.simplices import clip_simplices, simplex_measures
 from phasegauge.analysis.mixing import mixing_length, mixing_metrics, segregation_scale
 
 KINDS = [("triangle", (40, 40)), ("quad", (40, 40)), ("mixed", (40, 40)), ("polygon", (40, 40)),

@@ -5,7 +5,7 @@ import pandas as pd
 import pytest
 import pyvista
 
-from phasegauge.analysis import _cross_sections
+from phasegauge.analysis import _section_planes
 from phasegauge.analysis._cross_sections import _median, cross_sections
 from phasegauge.meshgen import delaunay_mesh, grid_mesh, to_meshio
 
@@ -16,13 +16,13 @@ pyvista.OFF_SCREEN = True
 def builds(monkeypatch):
     """Counts the section operators built (a cached one is not built again)."""
     calls = []
-    build = _cross_sections._build_sections
+    build = _section_planes._build_sections
 
     def counting(*args):
         calls.append(args[1:])
         return build(*args)
 
-    monkeypatch.setattr(_cross_sections, "_build_sections", counting)
+    monkeypatch.setattr(_section_planes, "_build_sections", counting)
     return calls
 
 
@@ -189,7 +189,7 @@ def test_other_planes_get_their_own_operator(builds):
     for count in range(1, 8):
         cross_sections(mesh, c, count=count)
     store = mesh.memo("cross_sections", dict)
-    assert len(store) == _cross_sections._KEEP
+    assert len(store) == _section_planes._KEEP
 
 
 def test_fields_elsewhere_extend_the_operator(builds):
@@ -215,7 +215,7 @@ def test_fields_elsewhere_extend_the_operator(builds):
 def test_sections_keep_the_operator_not_the_cells_extent():
     # the cells' extent along the axis is read once to build the operator and then let go (16
     # bytes a cell); an extent kept before by other work is used, and stays kept
-    from phasegauge.analysis._simplices import cell_extent
+    from phasegauge.model.corners import cell_extent
 
     mesh = grid_mesh((6, 5, 4), kind="tetra")
     c = 0.5 + 0.3 * np.sin(4 * mesh.points[:, 0])
@@ -247,13 +247,13 @@ def test_layers_of_a_grid_are_cut_once_and_repeated_exactly(monkeypatch, kind, s
     c = 0.5 + 0.4 * np.sin(3 * mesh.points[:, 0] + 2 * mesh.points[:, 1] - mesh.points[:, 2])
     c_cell = mesh.point_to_cell(c)
     taken = []
-    layer = _cross_sections._layer_pieces
-    monkeypatch.setattr(_cross_sections, "_layer_pieces", lambda *a: taken.append(layer(*a)) or taken[-1])
+    layer = _section_planes._layer_pieces
+    monkeypatch.setattr(_section_planes, "_layer_pieces", lambda *a: taken.append(layer(*a)) or taken[-1])
     lo, hi = mesh.bounds[:, 0]
     positions = [lo, lo + 0.37 * (hi - lo), float(np.unique(mesh.points[:, 0])[2]), lo + 0.81 * (hi - lo), hi]
     kept = [cross_sections(mesh, values, positions=positions) for values in (c, c_cell)]
     assert any(t is not None for t in taken)
-    monkeypatch.setattr(_cross_sections, "_layer_pieces", lambda *a: None)
+    monkeypatch.setattr(_section_planes, "_layer_pieces", lambda *a: None)
     general = grid_mesh(shape, kind=kind) if not stretch else Mesh(mesh.points, [(b.cell_type, b.connectivity)
                                                                                 for b in mesh.blocks])
     for values, table in zip((c, c_cell), kept):

@@ -1,7 +1,8 @@
 """Cross-section profiles: exact plane sections of the mesh and their statistics.
 
-A plane normal to one axis cuts every simplex of the cells it crosses
-(:mod:`._simplices`) in a triangle or a quadrilateral (3D) or a segment (2D).
+A plane normal to one axis cuts every simplex of the cells it crosses (the
+conforming split of :func:`phasegauge.model.simplices.split_cells`) in a triangle
+or a quadrilateral (3D) or a segment (2D).
 Point fields are interpolated linearly along the cut edges, cell fields are
 constant on the pieces of their cell, so each piece carries the exact field of
 the linear (or piecewise-constant) representation. The piece integrals of c,
@@ -10,15 +11,13 @@ most in the barycentric coordinates and are integrated exactly by the simplex
 moment formula (:func:`_section_integrals`); c is shifted by its median first
 so the variance does not suffer from cancellation.
 
-The pieces depend on the mesh and the planes only: they are built once
-(:class:`_Sections`: the pieces, their cells, and for every corner the cut
-edge and where along it) and cached on the mesh, so a step of a series only
+The pieces depend on the mesh and the planes only: they are built once and
+cached on the mesh (:mod:`._section_planes`), so a step of a series only
 interpolates its fields along the cut edges and sums the moments.
 """
 
 from __future__ import annotations
 
-from dataclasses import dataclass
 from math import factorial
 
 import numpy as np
@@ -26,9 +25,9 @@ import pandas as pd
 
 from ..errors import OptionError
 from ..model.indicator import Indicator
-from ..model._grouping import index_dtype
+from ..model.corners import corner_sum
 from ..model.mesh import Mesh
-from ._simplices import _flat_cells, _quad_faces, cell_extent, centre_states, node_states, split_cell_nodes
+from ._section_planes import _sections
 from ._sums import dot
 
 
@@ -113,263 +112,6 @@ def default_positions(mesh: Mesh, global_axis: int, count: int) -> np.ndarray:
     return lo + (np.arange(count) + 0.5) * (hi - lo) / count
 
 
-#: section operators kept per mesh: the latest ones built (a series uses one, for all its steps)
-_KEEP = 4
-
-
-@dataclass(frozen=True)
-class _Sections:
-    """Plane sections of a mesh as fixed maps from field values to section pieces.
-
-    Mesh-only: built once per mesh, axis and plane positions, then reused for
-    every step. The pieces (triangles in 3D, segments in 2D) of plane p are
-    ``offsets[p]:offsets[p + 1]``. A piece corner lies on a cut edge of the
-    cell split, between a node below the plane (``start``) and one above
-    (``end``), at ``weight`` t along it: a point field is ``x[start] + t
-    (x[end] - x[start])`` there, exactly as the split interpolates it. Cut
-    edges are shared by the pieces of a plane, so each is stored once.
-    Only what the fields' ``locations`` need is kept: the cut edges for point
-    fields, the pieces' cells for cell fields (None otherwise).
-    """
-
-    locations: frozenset  # of 'point', 'cell': the fields this operator serves
-    offsets: np.ndarray  # (n_planes + 1,) first piece of each plane
-    areas: np.ndarray  # (n_planes,) section area (3D) or length (2D)
-    measures: np.ndarray  # (n_pieces,) piece areas or lengths
-    corners: np.ndarray | None  # (dimension, n_pieces) cut edge of each piece corner
-    parent: np.ndarray | None  # (n_pieces,) cell of each piece
-    start: np.ndarray | None  # (n_cuts,) node below the plane: a mesh point, or an added centre
-    end: np.ndarray | None  # (n_cuts,) node above
-    weight: np.ndarray | None  # (n_cuts,) t, in [0, 1]
-    centred: tuple  # (block, rows) of the cells whose added centres are nodes, in node order
-
-    def cut_values(self, mesh: Mesh, values: np.ndarray) -> np.ndarray:
-        """A point field (n_points,) at every cut edge (n_cuts,), linear along the edge."""
-        added = centre_states(mesh, self.centred, values)
-        # numpy gathers much faster with intp indices than with the stored int32 ones
-        low = node_states(values, added, self.start.astype(np.intp, copy=False))
-        out = node_states(values, added, self.end.astype(np.intp, copy=False))
-        with np.errstate(invalid="ignore"):  # non-finite values: the pieces are left out later
-            out -= low
-            out *= self.weight
-            out += low  # low + t (high - low), as the split interpolates
-        return out
-
-
-def _plane_pieces(mesh: Mesh, axis: int, position: float, lower_end: bool, cells: np.ndarray,
-                  first_added: int) -> tuple:
-    """The section of ``cells`` by one plane: pieces and their corners on the cut edges.
-
-    Added centres are numbered from ``first_added`` on. Returns the piece
-    measures (n,), parents (n,), corner start and end nodes (n, dimension),
-    corner weights t (n, dimension) and the centred cells of the split.
-    """
-    dim = mesh.dimension
-    nodes, parent, centred = split_cell_nodes(mesh, cells)
-    X = node_states(mesh.coordinates, centre_states(mesh, centred, mesh.coordinates), nodes)
-    s = X[:, :, axis] - position
-    below = np.count_nonzero(s <= 0 if lower_end else s < 0, axis=1)
-    crossed = (below > 0) & (below < dim + 1)
-    others = [a for a in range(dim) if a != axis]
-    X, nodes, parent, s, below = X[crossed][:, :, others], nodes[crossed], parent[crossed], s[crossed], below[crossed]
-    nodes = np.where(nodes >= mesh.n_points, nodes - mesh.n_points + first_added, nodes)
-    order = np.argsort(s, axis=1, kind="stable")
-    s = np.take_along_axis(s, order, axis=1)
-    X = np.take_along_axis(X, order[:, :, None], axis=1)
-    nodes = np.take_along_axis(nodes, order, axis=1)
-
-    def case(k):
-        # the simplices with k corners below the plane, gathered once for all their edges
-        rows = below == k
-        sk, Xk, Nk = s[rows], X[rows], nodes[rows]
-
-        def edge(i, j):
-            si, sj = sk[:, i], sk[:, j]
-            t = si / (si - sj)
-            Xi = Xk[:, i]
-            return Xi + t[:, None] * (Xk[:, j] - Xi), Nk[:, i], Nk[:, j], t
-
-        return edge, parent[rows]
-
-    (one, p1), (two, p2) = case(1), case(2)
-    if dim == 2:
-        pieces = [[one(0, 1), one(0, 2)], [two(0, 2), two(1, 2)]]
-        parents = [p1, p2]
-    else:
-        three, p3 = case(3)
-        e02, e13 = two(0, 2), two(1, 3)
-        pieces = [[one(0, 1), one(0, 2), one(0, 3)], [three(0, 3), three(1, 3), three(2, 3)],
-                  [e02, two(0, 3), e13], [e02, e13, two(1, 2)]]
-        parents = [p1, p3, p2, p2]
-    # (n, dim) per item of a corner: position in the plane, start node, end node, t
-    X, start, end, t = (np.concatenate([np.stack([corner[item] for corner in piece], axis=1)
-                                        for piece in pieces]) for item in range(4))
-    if dim == 2:
-        measures = np.abs(X[:, 1, 0] - X[:, 0, 0])
-    else:
-        d1 = X[:, 1] - X[:, 0]
-        d2 = X[:, 2] - X[:, 0]
-        measures = 0.5 * np.abs(d1[:, 0] * d2[:, 1] - d1[:, 1] * d2[:, 0])
-    return measures, np.concatenate(parents), start, end, t, centred
-
-
-def _layer_pieces(mesh: Mesh, axis: int, position: float, lower_end: bool, cells: np.ndarray,
-                  first_added: int) -> tuple | None:
-    """:func:`_plane_pieces` for a layer of cells that all meet the plane alike, else None.
-
-    When every crossed cell is of one block, is split without added centres, and has the
-    same offsets ``s`` from the plane at its local corners (a layer of a structured grid),
-    the split, the sort by ``s``, the cut simplices and the weights are the same in every
-    cell: they are taken from the first cell (by :func:`_plane_pieces` itself) and repeated
-    for the others, each with its own corner coordinates. The arrays are the ones
-    :func:`_plane_pieces` returns for all the cells, value for value and in its order (the
-    first cell's pieces one by one, each over all the cells): the same floating-point
-    operations on the same numbers.
-    """
-    if cells.size < 2:
-        return None
-    offsets = mesh.block_offsets
-    b = int(np.searchsorted(offsets, cells[0], side="right")) - 1
-    if cells[-1] >= offsets[b + 1]:
-        return None  # more than one block
-    block = mesh.blocks[b]
-    local = cells - offsets[b]
-    if block.cell_type in ("hexahedron", "wedge", "pyramid") and not _flat_cells(mesh)[b][local].all():
-        return None  # some are split about added centres
-    conn = block.connectivity[local]
-    X = mesh.coordinates
-    along = X[:, axis]
-    s = along[conn] - position
-    if not (s == s[0]).all():
-        return None
-    template = _plane_pieces(mesh, axis, position, lower_end, cells[:1], first_added)
-    measures, parents, start, end, t, centred = template
-    if centred or measures.size == 0:
-        return None
-    row = conn[0]
-    if np.unique(row).size != row.size:
-        return None  # a corner repeated: the first cell's points do not name its corners
-    slot = {int(point): j for j, point in enumerate(row)}
-    j_start = np.vectorize(slot.__getitem__, otypes=[np.intp])(start)  # (k, dim) local corners
-    j_end = np.vectorize(slot.__getitem__, otypes=[np.intp])(end)
-    dim = mesh.dimension
-    others = [a for a in range(dim) if a != axis]
-    # (k pieces, n cells, dim corners): piece-major, as _plane_pieces orders its rows
-    S, E = conn[:, j_start].transpose(1, 0, 2), conn[:, j_end].transpose(1, 0, 2)
-    si, sj = along[S] - position, along[E] - position
-    weight = si / (si - sj)
-    P = []  # per in-plane axis, (k, n, dim): the corners, as _plane_pieces' edges place them
-    for a in others:
-        column = X[:, a]
-        Xi = column[S]
-        P.append(Xi + weight * (column[E] - Xi))
-    if dim == 2:
-        pieces = np.abs(P[0][:, :, 1] - P[0][:, :, 0])
-    else:
-        d1 = [q[:, :, 1] - q[:, :, 0] for q in P]
-        d2 = [q[:, :, 2] - q[:, :, 0] for q in P]
-        pieces = 0.5 * np.abs(d1[0] * d2[1] - d1[1] * d2[0])
-    k, n = S.shape[0], cells.size
-    return (pieces.reshape(-1), np.tile(cells.astype(parents.dtype), k), S.reshape(k * n, dim).astype(start.dtype),
-            E.reshape(k * n, dim).astype(end.dtype), weight.reshape(k * n, dim), [])
-
-
-def _build_sections(mesh: Mesh, axis: int, positions: np.ndarray, lower_ends: np.ndarray,
-                    locations: frozenset) -> _Sections:
-    """The section operator of ``positions`` along analysis axis ``axis`` (see :class:`_Sections`)."""
-    lo, hi = cell_extent(mesh, axis, keep=False)  # the operator itself is kept
-    dim = mesh.dimension
-    offsets, n_cuts, n_added = [0], 0, 0
-    measures, parents, corners, starts, ends, weights, centred = [], [], [], [], [], [], []
-    for position, lower_end in zip(positions, lower_ends):
-        crossed = (lo <= position) & (hi > position) if lower_end else (lo < position) & (hi >= position)
-        cells = np.nonzero(crossed)[0]
-        m, parent, start, end, t, plane_centred = (
-            _layer_pieces(mesh, axis, float(position), bool(lower_end), cells, mesh.n_points + n_added)
-            or _plane_pieces(mesh, axis, float(position), bool(lower_end), cells, mesh.n_points + n_added))
-        # each cut edge once: the pieces of a plane share them. Numbered in the order the
-        # pieces first use them, so the pieces read their corner values nearly in order
-        start, end, t = start.ravel(), end.ravel(), t.ravel()
-        key = start * np.int64(max(int(start.max(initial=0)), int(end.max(initial=0))) + 1) + end
-        order = np.argsort(key, kind="stable")
-        distinct = np.ones(key.size, dtype=bool)
-        distinct[1:] = key[order[1:]] != key[order[:-1]]
-        first = order[distinct]  # where each cut edge is used first, in key order
-        by_use = np.argsort(first)
-        number = np.empty(first.size, dtype=np.int64)
-        number[by_use] = np.arange(first.size)
-        cut = np.empty(key.size, dtype=np.int64)
-        cut[order] = number[np.cumsum(distinct) - 1]
-        first = first[by_use]
-        n_added += sum(rows.size * (1 + _quad_faces(mesh.blocks[b].cell_type)) for b, rows in plane_centred)
-        # kept per plane in the narrowest type their values need so far (joined below in the
-        # final types): the planes' parts are what the building holds longest
-        nodes = index_dtype(mesh.n_points + n_added)
-        measures.append(m)
-        parents.append(parent.astype(index_dtype(mesh.n_cells), copy=False))
-        corners.append((cut.reshape(-1, dim) + n_cuts).astype(index_dtype(n_cuts + first.size), copy=False))
-        starts.append(start[first].astype(nodes, copy=False))
-        ends.append(end[first].astype(nodes, copy=False))
-        weights.append(t[first])
-        centred += plane_centred
-        offsets.append(offsets[-1] + m.size)
-        n_cuts += first.size
-    node_type = index_dtype(mesh.n_points + n_added)
-
-    def joined(arrays, dtype, shape=(0,), transposed=False):
-        """The planes' arrays end to end in ``dtype`` (first axis; with ``transposed``, the last
-        axis of the transposed parts). The list is emptied as its parts are copied, so no more
-        than one plane's part is held twice (the first step's memory peak was here)."""
-        if not arrays:
-            return np.zeros(shape[::-1] if transposed else shape, dtype=dtype)
-        total, rest = sum(a.shape[0] for a in arrays), arrays[0].shape[1:]
-        out = np.empty(rest[::-1] + (total,) if transposed else (total,) + rest, dtype=dtype)
-        at = 0
-        while arrays:
-            part = arrays.pop(0)
-            rows = slice(at, at + part.shape[0])
-            if transposed:
-                out[..., rows] = part.T
-            else:
-                out[rows] = part
-            at = rows.stop
-        return out
-
-    measures = joined(measures, np.float64)
-    offsets = np.asarray(offsets, dtype=np.int64)
-    points = "point" in locations
-    return _Sections(
-        locations=locations,
-        offsets=offsets,
-        areas=np.array([measures[a:b].sum() for a, b in zip(offsets[:-1], offsets[1:])]),
-        measures=measures,
-        corners=joined(corners, index_dtype(n_cuts), (0, dim), transposed=True) if points else None,
-        parent=joined(parents, index_dtype(mesh.n_cells)) if "cell" in locations else None,
-        start=joined(starts, node_type) if points else None,
-        end=joined(ends, node_type) if points else None,
-        weight=joined(weights, np.float64) if points else None,
-        centred=tuple((b, rows.astype(index_dtype(mesh.n_cells))) for b, rows in centred) if points else ())
-
-
-def _sections(mesh: Mesh, axis: int, positions: np.ndarray, lower_ends: np.ndarray,
-              locations: frozenset) -> _Sections:
-    """The section operator, from the mesh's cache when the same planes were cut before.
-
-    ``locations``: where the fields live ('point', 'cell'); an operator kept
-    for other locations is built again for all of them.
-    """
-    store = mesh.memo("cross_sections", dict)
-    key = (int(axis), positions.tobytes())
-    kept = store.pop(key, None)  # put back last: the newest
-    if kept is None or not locations <= kept.locations:
-        locations = locations | (kept.locations if kept is not None else frozenset())
-        while len(store) >= _KEEP:
-            store.pop(next(iter(store)))  # the oldest
-        kept = _build_sections(mesh, axis, positions, lower_ends, locations)
-    store[key] = kept
-    return kept
-
-
 def _section_integrals(measures: np.ndarray, c: list, u: list | None = None) -> tuple:
     """Exact integrals over simplices of the linear c (and u) given at their corners.
 
@@ -399,21 +141,13 @@ def _section_integrals(measures: np.ndarray, c: list, u: list | None = None) -> 
     out = [dot(measures, sc) / k, dot(measures, work) * factorial(d) / factorial(d + 2)]
     if u is None:
         return tuple(out)
-    su = _corner_sum(u)
+    su = corner_sum(u)
     uc = [ui * ci for ui, ci in zip(u, c)]
-    suc = _corner_sum(uc)
-    cubic = su * sc * sc + suc * sc + cc * su + suc * sc + 2 * _corner_sum([p * ci for p, ci in zip(uc, c)])
+    suc = corner_sum(uc)
+    cubic = su * sc * sc + suc * sc + cc * su + suc * sc + 2 * corner_sum([p * ci for p, ci in zip(uc, c)])
     out += [dot(measures, su) / k, dot(measures, suc + su * sc) * factorial(d) / factorial(d + 2),
             dot(measures, cubic) * factorial(d) / factorial(d + 3)]
     return tuple(out)
-
-
-def _corner_sum(values: list) -> np.ndarray:
-    """Sum of the corner arrays, added in corner order."""
-    total = values[0] + values[1]
-    for v in values[2:]:
-        total += v
-    return total
 
 
 def _median(values: np.ndarray) -> float:

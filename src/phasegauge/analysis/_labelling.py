@@ -45,6 +45,7 @@ from scipy.spatial import cKDTree
 from ..errors import OptionError
 from ..model.axes import AXIS_INDEX, AXIS_NAMES
 from ..model.fields import cell_values, vector_values
+from ..model.corners import corner_extremes
 from ..model.mesh import Mesh
 
 __all__ = ["DropletLabels", "label_droplets", "TABLE_COLUMNS"]
@@ -203,27 +204,6 @@ def _build_neighbour_table(mesh: Mesh) -> np.ndarray:
             rows = b[order].astype(np.intp)
             flat[rows * width + rank + off_b[rows]] = a[order]
     return table
-
-
-def _core_boxes(mesh: Mesh, cells: np.ndarray):
-    """Min and max corner coordinates of the given cells (sorted indices), each (len(cells), dim)."""
-    X = mesh.coordinates
-    lo = np.empty((cells.size, mesh.dimension))
-    hi = np.empty_like(lo)
-    offsets = mesh.block_offsets
-    bounds = np.searchsorted(cells, offsets)
-    for block, start, first, last in zip(mesh.blocks, offsets[:-1], bounds[:-1], bounds[1:]):
-        if last > first:
-            conn = np.take(block.connectivity, cells[first:last] - start, axis=0)
-            corner = np.take(X, conn[:, 0], axis=0)
-            low, high = corner.copy(), corner
-            for j in range(1, conn.shape[1]):  # corner by corner: faster than reducing a short axis
-                corner = np.take(X, conn[:, j], axis=0)
-                np.minimum(low, corner, out=low)
-                high = np.maximum(high, corner)
-            lo[first:last] = low
-            hi[first:last] = high
-    return lo, hi
 
 
 def _face_lengths(mesh: Mesh, pairs: np.ndarray) -> np.ndarray:
@@ -712,7 +692,7 @@ def label_droplets(mesh: Mesh, c_cell, *, level: float = 0.5, connectivity: str 
     g = shared[member]
     member_cells = cells[member]
     X = np.take(mesh.cell_centroids, member_cells, axis=0)
-    box_lo, box_hi = _core_boxes(mesh, cells[core_local])
+    box_lo, box_hi = corner_extremes(mesh, mesh.coordinates, cells[core_local])  # corner boxes
     if axes:
         shift = np.zeros((k, dim))
         for j, ax in enumerate(axes):

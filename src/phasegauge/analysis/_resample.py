@@ -10,12 +10,12 @@ Interpolation inside the mesh:
 * a rectilinear grid of quads or hexahedra (:attr:`Mesh.regular_grid`) is
   interpolated multilinearly (bilinear / trilinear, the cells' own shape
   functions) with ``scipy.interpolate.RegularGridInterpolator``;
-* any other mesh is split into simplices (quads and polygons into triangles,
-  hexahedra into six tetrahedra, wedges into three, pyramids into two), each
-  simplex is rasterised onto the sampling grid (only samples inside its
-  bounding box are tested) and samples that pass the barycentric test get the
-  linear interpolant of the corner values. The loop runs over cell types and
-  chunks of cells, never over single cells.
+* any other mesh is split into simplices by the conforming split of
+  :func:`phasegauge.model.simplices.split_cells` (no gaps between cells, even
+  where quad faces are bent), each simplex is rasterised onto the sampling grid
+  (only samples inside its bounding box are tested) and samples that pass the
+  barycentric test get the linear interpolant of the corner values. The loop
+  runs over chunks of simplices, never over single cells.
 
 Samples outside the mesh (or in cells with a non-finite corner value) are NaN.
 """
@@ -29,6 +29,7 @@ import numpy as np
 
 from ..errors import InputError, OptionError, ResolutionWarning
 from ..model.mesh import Mesh
+from ..model.simplices import split_cells
 
 __all__ = ["SamplingGrid", "common_grid", "resample_to_grid"]
 
@@ -36,20 +37,8 @@ __all__ = ["SamplingGrid", "common_grid", "resample_to_grid"]
 _CANDIDATES_PER_CHUNK = 2_000_000
 #: barycentric coordinates down to -_INSIDE_TOL count as inside (samples on shared faces)
 _INSIDE_TOL = 1e-10
-#: samples in gaps between warped cells: accepted this far outside a simplex (barycentric)
-_GAP_TOL = 0.5
-#: nearest simplices (by centroid) tried for a sample in such a gap
-_GAP_NEIGHBOURS = 24
-
-# simplices (corner indices in VTK order) each linear cell type is split into
-_SPLITS = {
-    "triangle": [(0, 1, 2)],
-    "quad": [(0, 1, 2), (0, 2, 3)],
-    "tetra": [(0, 1, 2, 3)],
-    "hexahedron": [(0, 1, 2, 6), (0, 2, 3, 6), (0, 3, 7, 6), (0, 7, 4, 6), (0, 4, 5, 6), (0, 5, 1, 6)],
-    "wedge": [(0, 1, 2, 3), (1, 2, 3, 4), (2, 3, 4, 5)],
-    "pyramid": [(0, 1, 2, 4), (0, 2, 3, 4)],
-}
+#: simplices rasterised per pass (bounds the memory of their corner coordinates)
+_SIMPLICES_PER_PASS = 1 << 18
 
 
 @dataclass(frozen=True)
@@ -251,10 +240,11 @@ def resample_to_grid(mesh: Mesh, c_point, grid: SamplingGrid) -> np.ndarray:
     Notes
     -----
     Rectilinear quad/hexahedron grids are interpolated multilinearly; every
-    other mesh piecewise linearly on a split of its cells into simplices (for a
-    quad or a hexahedron that is not the cell's own bilinear/trilinear
-    interpolant; both are second-order accurate). A sample on a face shared by
-    two cells takes either cell's value (equal for a continuous field).
+    other mesh piecewise linearly on the conforming split of its cells into
+    simplices (for a quad or a hexahedron that is not the cell's own
+    bilinear/trilinear interpolant; both are second-order accurate, and both
+    reproduce a linear field exactly). A sample on a face shared by two cells
+    takes either cell's value (equal: the interpolant is continuous).
 
     References
     ----------
@@ -283,76 +273,11 @@ def resample_to_grid(mesh: Mesh, c_point, grid: SamplingGrid) -> np.ndarray:
     if mesh.regular_grid is not None:
         return _resample_rectilinear(mesh, c, grid)
     out = np.full(grid.n_samples, np.nan)
-    located = np.zeros(grid.n_samples, dtype=bool)
-    X = mesh.coordinates
-    for simplices in _simplex_blocks(mesh):
-        _rasterise(X, c, simplices, grid, out, located)
-    _fill_gaps(mesh, c, grid, out, located)
+    split = split_cells(mesh, values=c)
+    X, values, S = split.coordinates, split.values, split.simplices
+    for start in range(0, S.shape[0], _SIMPLICES_PER_PASS):
+        _rasterise(X, values, S[start:start + _SIMPLICES_PER_PASS], grid, out)
     return out.reshape(grid.shape)
-
-
-def _simplex_blocks(mesh: Mesh):
-    """Yield the simplices (corner point indices) of each cell block, one split at a time."""
-    for block in mesh.blocks:
-        conn = block.connectivity
-        if block.cell_type == "polygon":
-            k = conn.shape[1]
-            local = [(0, i, i + 1) for i in range(1, k - 1)]
-        else:
-            local = _SPLITS[block.cell_type]
-        for corners in local:
-            yield conn[:, list(corners)]
-
-
-def _fill_gaps(mesh: Mesh, c: np.ndarray, grid: SamplingGrid, out: np.ndarray,
-               located: np.ndarray) -> None:
-    """Locate samples that fell between the simplices of neighbouring warped cells.
-
-    The simplex splits of two cells sharing a non-planar quad face need not
-    match, which leaves thin gaps. A sample inside the mesh's bounding box that
-    no simplex claimed is tried against the simplices with the nearest centroids
-    (KD-tree); within ``_GAP_TOL`` of one (in barycentric coordinates) it takes
-    that simplex's value with the coordinates clipped to the simplex.
-    """
-    from scipy.spatial import cKDTree
-
-    lo, hi = _analysis_bounds(mesh)
-    P = grid.points()
-    todo = np.nonzero(~located & np.all((P >= lo) & (P <= hi), axis=1))[0]
-    if todo.size == 0:
-        return
-    simplices = np.concatenate(list(_simplex_blocks(mesh)))
-    X = mesh.coordinates
-    V = X[simplices]
-    tree = cKDTree(V.mean(axis=1))
-    k = min(_GAP_NEIGHBOURS, len(simplices))
-    _, near = tree.query(P[todo], k=k)
-    near = near.reshape(todo.size, k)
-    dim = grid.dimension
-    best = np.full(todo.size, -np.inf)
-    best_value = np.full(todo.size, np.nan)
-    for j in range(k):
-        ids = near[:, j]
-        ref = V[ids, dim, :]
-        E = np.swapaxes(V[ids, :dim, :] - ref[:, None, :], 1, 2)
-        det = np.linalg.det(E)
-        ok = np.abs(det) > 1e-12 * np.maximum(np.abs(E).max(axis=(1, 2)) ** dim, 1e-300)
-        lam = np.full((todo.size, dim + 1), -np.inf)
-        if np.any(ok):
-            T = np.linalg.inv(E[ok])
-            partial = np.einsum("nij,nj->ni", T, P[todo[ok]] - ref[ok])
-            lam[ok] = np.column_stack([partial, 1.0 - partial.sum(axis=1)])
-        worst = lam.min(axis=1)
-        better = worst > best
-        if not np.any(better):
-            continue
-        w = np.clip(lam[better], 0.0, None)
-        w /= w.sum(axis=1, keepdims=True)
-        best[better] = worst[better]
-        best_value[better] = np.einsum("ni,ni->n", w, c[simplices[ids[better]]])
-    take = best >= -_GAP_TOL
-    out[todo[take]] = best_value[take]
-    located[todo[take]] = True
 
 
 def _resample_rectilinear(mesh: Mesh, c: np.ndarray, grid: SamplingGrid) -> np.ndarray:
@@ -366,66 +291,124 @@ def _resample_rectilinear(mesh: Mesh, c: np.ndarray, grid: SamplingGrid) -> np.n
 
 
 def _rasterise(X: np.ndarray, c: np.ndarray, simplices: np.ndarray, grid: SamplingGrid,
-               out: np.ndarray, located: np.ndarray) -> None:
+               out: np.ndarray) -> None:
     """Write the linear interpolant of every simplex at the grid samples inside it."""
     dim = grid.dimension
-    origin, h, shape = grid.origin, grid.spacing, np.array(grid.shape)
+    origin, h, shape = grid.origin, grid.spacing, grid.shape
     strides = np.array([int(np.prod(shape[d + 1:])) for d in range(dim)], dtype=np.int64)
-    V = X[simplices]  # (n, dim+1, dim)
-    lo_idx = np.ceil((V.min(axis=1) - origin) / h - 1e-9).astype(np.int64)
-    hi_idx = np.floor((V.max(axis=1) - origin) / h + 1e-9).astype(np.int64)
-    lo_idx = np.maximum(lo_idx, 0)
-    hi_idx = np.minimum(hi_idx, shape - 1)
-    box = np.maximum(hi_idx - lo_idx + 1, 0)
-    counts = box.prod(axis=1)
-    keep = np.nonzero(counts > 0)[0]
+    columns = [np.ascontiguousarray(X[:, a]) for a in range(dim)]
+    # corner by corner, axis by axis: P[j][a] is coordinate a of corner j of every simplex
+    P = [[column[simplices[:, j]] for column in columns] for j in range(dim + 1)]
+    # per axis, the first and the number of samples in each simplex's bounding box
+    first, size = [], []
+    counts = np.ones(simplices.shape[0], dtype=np.int64)
+    for a in range(dim):
+        low, high = P[0][a].copy(), P[0][a].copy()
+        for j in range(1, dim + 1):
+            np.minimum(low, P[j][a], out=low)
+            np.maximum(high, P[j][a], out=high)
+        for bound in (low, high):
+            bound -= origin[a]
+            bound /= h[a]
+        np.ceil(low - 1e-9, out=low)
+        np.floor(high + 1e-9, out=high)
+        np.maximum(low, 0, out=low)
+        np.minimum(high, shape[a] - 1, out=high)
+        high -= low
+        high += 1
+        np.maximum(high, 0, out=high)
+        first.append(low.astype(np.int64))
+        size.append(high.astype(np.int64))
+        counts *= size[-1]
+    keep = np.flatnonzero(counts)
     if keep.size == 0:
         return
-    ends = np.cumsum(counts[keep])
-    start = 0
-    while start < keep.size:
-        base = ends[start - 1] if start else 0
-        stop = int(np.searchsorted(ends, base + _CANDIDATES_PER_CHUNK, side="right"))
-        stop = max(stop, start + 1)
-        _rasterise_chunk(keep[start:stop], V, simplices, c, lo_idx, box, counts, origin, h,
-                         strides, out, located)
-        start = stop
+    inverse, ref, good = _barycentric_maps([[p[keep] for p in corner] for corner in P])
+    keep = keep[good]
+    inverse, ref = [[e[good] for e in row] for row in inverse], [r[good] for r in ref]
+    low = np.stack([f[keep] for f in first], axis=1)
+    size = [n[keep] for n in size]
+    # simplices grouped by the shape of their box of samples: a group tests the same offsets from
+    # each simplex's lowest sample, so its candidates are one broadcast, with no per-pair indexing
+    key = size[0]
+    for n in size[1:]:
+        key = key * (int(n.max()) + 1) + n
+    if key.max() < 2 ** 15:
+        key = key.astype(np.int16)  # a radix sort
+    order = np.argsort(key, kind="stable")
+    starts = np.flatnonzero(np.diff(key[order], prepend=-1))
+    for begin, end in zip(starts, np.append(starts[1:], order.size)):
+        group = order[begin:end]
+        box = [int(n[group[0]]) for n in size]
+        offsets = np.stack(np.meshgrid(*[np.arange(n) for n in box], indexing="ij"), axis=-1).reshape(-1, dim)
+        per_pass = max(1, _CANDIDATES_PER_CHUNK // offsets.shape[0])
+        for at in range(0, group.size, per_pass):
+            rows = group[at:at + per_pass]
+            _rasterise_group(keep[rows], [[e[rows] for e in row] for row in inverse], [r[rows] for r in ref],
+                             low[rows], offsets, simplices, c, grid, strides, out)
 
 
-def _rasterise_chunk(ids, V, simplices, c, lo_idx, box, counts, origin, h, strides, out,
-                     located) -> None:
-    dim = V.shape[2]
-    Vs = V[ids]
-    ref = Vs[:, dim, :]  # last corner as origin of the barycentric map
-    E = np.swapaxes(Vs[:, :dim, :] - ref[:, None, :], 1, 2)  # columns: edge vectors
-    det = np.linalg.det(E)
-    scale = np.abs(E).max(axis=(1, 2)) ** dim
-    good = np.abs(det) > 1e-12 * np.maximum(scale, 1e-300)
-    if not np.any(good):
+def _barycentric_maps(P: list) -> tuple:
+    """Per simplex, the map from a point to its first ``dim`` barycentric coordinates.
+
+    ``P[j][a]``: coordinate a of corner j (arrays (n,)). Returns the inverse of the
+    edge matrix (columns: corner j minus the last corner) as rows of entry arrays
+    (n,), the last corner by axis, and True for simplices that are not degenerate
+    (|det| above 1e-12 of the largest edge component to the power dim). The inverse
+    by cofactors (rows: cross products of the other edges over the determinant), as
+    Cramer's rule gives it.
+    """
+    dim = len(P) - 1
+    ref = P[dim]
+    e = [[p[a] - ref[a] for a in range(dim)] for p in P[:dim]]  # e[j][a]: edge j, axis a
+    if dim == 2:
+        (ax, ay), (bx, by) = e
+        det = ax * by - bx * ay
+        rows = [[by, -bx], [-ay, ax]]
+    else:
+        (ax, ay, az), (bx, by, bz), (cx, cy, cz) = e
+        rows = [[by * cz - bz * cy, bz * cx - bx * cz, bx * cy - by * cx],  # b x c
+                [cy * az - cz * ay, cz * ax - cx * az, cx * ay - cy * ax],  # c x a
+                [ay * bz - az * by, az * bx - ax * bz, ax * by - ay * bx]]  # a x b
+        det = ax * rows[0][0] + ay * rows[0][1] + az * rows[0][2]
+    scale = np.abs(e[0][0])
+    for edge in e:
+        for component in edge:
+            np.maximum(scale, np.abs(component), out=scale)
+    good = np.abs(det) > 1e-12 * np.maximum(scale ** dim, 1e-300)
+    with np.errstate(divide="ignore", invalid="ignore"):
+        reciprocal = 1.0 / det
+    for row in rows:
+        for entry in row:
+            entry *= reciprocal
+    return rows, ref, good
+
+
+def _rasterise_group(ids, inverse, ref, low, offsets, simplices, c, grid, strides, out) -> None:
+    """Test the samples at ``offsets`` (m, dim) from each simplex's lowest sample ``low`` (n, dim);
+    write the interpolant at those inside."""
+    dim = len(ref)
+    origin, h = grid.origin, grid.spacing
+    # each candidate minus the simplex's last corner, per axis: (n, m)
+    d = [(low[:, j] * h[j] + (origin[j] - ref[j]))[:, None] + (offsets[:, j] * h[j])[None, :] for j in range(dim)]
+    lam = []  # barycentric coordinates of the first dim corners, (n, m) each
+    for row in inverse:
+        value = row[0][:, None] * d[0]
+        for j in range(1, dim):
+            value += row[j][:, None] * d[j]
+        lam.append(value)
+    lam_last = 1.0 - sum(lam)
+    inside = lam_last >= -_INSIDE_TOL
+    for value in lam:
+        inside &= value >= -_INSIDE_TOL
+    which, at = np.nonzero(inside)
+    if which.size == 0:
         return
-    ids, ref, E = ids[good], ref[good], E[good]
-    T = np.linalg.inv(E)  # (n, dim, dim)
-    n_each = counts[ids]
-    owner = np.repeat(np.arange(ids.size), n_each)
-    offset = np.arange(owner.size) - np.repeat(np.cumsum(n_each) - n_each, n_each)
-    # unravel the offset inside each simplex's box (C order)
-    b = box[ids][owner]
-    local = np.empty((owner.size, dim), dtype=np.int64)
-    rest = offset
-    for d in range(dim - 1, -1, -1):
-        local[:, d] = rest % b[:, d]
-        rest = rest // b[:, d]
-    index = lo_idx[ids][owner] + local
-    x = origin + index * h
-    lam = np.einsum("nij,nj->ni", T[owner], x - ref[owner])
-    lam_last = 1.0 - lam.sum(axis=1)
-    inside = (lam.min(axis=1) >= -_INSIDE_TOL) & (lam_last >= -_INSIDE_TOL)
-    if not np.any(inside):
-        return
-    owner, lam, lam_last, index = owner[inside], lam[inside], lam_last[inside], index[inside]
-    corner_values = c[simplices[ids[owner]]]  # (m, dim+1)
-    value = np.einsum("ni,ni->n", lam, corner_values[:, :dim]) + lam_last * corner_values[:, dim]
-    flat = index @ strides
-    located[flat] = True
+    lam, lam_last = [value[which, at] for value in lam], lam_last[which, at]
+    corners = simplices[ids[which]]
+    value = lam_last * c[corners[:, dim]]
+    for j in range(dim):
+        value += lam[j] * c[corners[:, j]]
+    flat = (low[which] + offsets[at]) @ strides
     finite = np.isfinite(value)  # a sample on a face shared with a NaN cell keeps the finite value
     out[flat[finite]] = value[finite]

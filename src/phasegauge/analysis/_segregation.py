@@ -8,8 +8,9 @@ import pandas as pd
 from ..errors import OptionError
 from ..model.axes import AXIS_NAMES
 from ..model.fields import cell_values
+from ..model.corners import cell_extent
 from ..model.mesh import Mesh
-from ._simplices import box_fractions
+from ..model.simplices import clip_simplices, simplex_measures, split_cells
 from ._sums import dot
 
 
@@ -42,6 +43,44 @@ def normalize_box(mesh: Mesh, box) -> np.ndarray:
             raise OptionError(f"box bounds along {AXIS_NAMES[axis]} must increase, found {rows[axis]}",
                               fix="give (lower, upper)")
     return out
+
+
+def box_fractions(mesh: Mesh, box: np.ndarray) -> np.ndarray:
+    """Fraction of each cell's measure inside an axis-aligned box, exactly for the simplex split.
+
+    Parameters
+    ----------
+    mesh : Mesh
+    box : ndarray of shape (dimension, 2)
+        Lower and upper bound per analysis axis.
+
+    Returns
+    -------
+    ndarray of shape (n_cells,), in [0, 1]
+        Only the cells a box face crosses are split (conforming split of
+        :func:`phasegauge.model.simplices.split_cells`) and clipped.
+    """
+    dim = mesh.dimension
+    inside = np.ones(mesh.n_cells, dtype=bool)
+    outside = np.zeros(mesh.n_cells, dtype=bool)
+    for axis in range(dim):
+        lo, hi = cell_extent(mesh, axis)
+        inside &= (lo >= box[axis, 0]) & (hi <= box[axis, 1])
+        outside |= (hi <= box[axis, 0]) | (lo >= box[axis, 1])
+    fraction = inside.astype(np.float64)
+    cut = np.nonzero(~inside & ~outside)[0]
+    if cut.size == 0:
+        return fraction
+    split = split_cells(mesh, cut)
+    X, parent = split.corner_values(mesh.coordinates), split.owner
+    whole = np.bincount(parent, simplex_measures(X), minlength=mesh.n_cells)[cut]
+    for axis in range(dim):
+        for value, sign in ((box[axis, 0], -1.0), (box[axis, 1], 1.0)):
+            X, parent = clip_simplices(X, parent, sign * (X[:, :, axis] - value))
+    kept = np.bincount(parent, simplex_measures(X), minlength=mesh.n_cells)[cut]
+    with np.errstate(invalid="ignore", divide="ignore"):
+        fraction[cut] = np.where(whole > 0, np.clip(kept / whole, 0.0, 1.0), 0.0)
+    return fraction
 
 
 def _intensity(weights: np.ndarray, c: np.ndarray) -> tuple[float, float]:

@@ -20,6 +20,7 @@ from __future__ import annotations
 import numpy as np
 
 from ..errors import OptionError
+from ..model._statistics import weighted_quantile
 from ..model.mesh import Mesh
 from ._resample import SamplingGrid, check_same_space, common_grid, resample_to_grid
 
@@ -181,13 +182,6 @@ def _densify_triangles(tri: np.ndarray, target: float):
     return np.concatenate(points), np.concatenate(weights)
 
 
-def _weighted_quantile(values: np.ndarray, weights: np.ndarray, q: float) -> float:
-    order = np.argsort(values)
-    v, w = values[order], weights[order]
-    cum = np.cumsum(w)
-    return float(v[min(int(np.searchsorted(cum, q * cum[-1])), v.size - 1)])
-
-
 def shape_comparison_on_grid(values_a: np.ndarray, values_b: np.ndarray, grid: SamplingGrid, *,
                              level: float = 0.5, densify: float | None = None) -> dict:
     """Shape metrics of two fields already sampled on ``grid`` (see :func:`shape_comparison`)."""
@@ -247,7 +241,7 @@ def interface_distances(a: np.ndarray, b: np.ndarray, grid: SamplingGrid, *, lev
     w = np.concatenate([w_a, w_b])
     out.update(hausdorff_ab=float(d_ab.max()), hausdorff_ba=float(d_ba.max()),
                hausdorff=float(max(d_ab.max(), d_ba.max())),
-               hausdorff_95=_weighted_quantile(d, w, 0.95),
+               hausdorff_95=weighted_quantile(d, w, 0.95, method="inverted_cdf"),
                mean_distance=float(np.sum(d * w) / np.sum(w)))
     return out
 

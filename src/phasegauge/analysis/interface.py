@@ -12,11 +12,13 @@ Pure functions of a mesh and the phase indicator c:
   history of the interface variance.
 """
 
-from ._contour import Contour, find_interface, split_cells
+from ..model.contour import Contour
+from ..model.corners import CornerExtremes, cell_gradient
+from ._contour import find_interface
 from ._diffusion_audit import diffusion_audit
-from ._interface_width import (METRIC_KEYS, PROFILE_COLUMNS, WIDTH_PER_EPS, cell_gradient,
-                               interface_metrics, interface_profile_table)
+from ._interface_width import (METRIC_KEYS, PROFILE_COLUMNS, WIDTH_PER_EPS, interface_metrics,
+                               interface_profile_table)
 
-__all__ = ["Contour", "find_interface", "split_cells", "interface_metrics",
+__all__ = ["Contour", "CornerExtremes", "find_interface", "interface_metrics",
            "interface_profile_table", "cell_gradient", "diffusion_audit",
            "METRIC_KEYS", "PROFILE_COLUMNS", "WIDTH_PER_EPS"]

@@ -1,6 +1,6 @@
 """Contour geometry as VTK files, written atomically.
 
-A contour (:class:`phasegauge.analysis.interface.Contour`) becomes a VTK
+A contour (:class:`phasegauge.model.contour.Contour`) becomes a VTK
 unstructured grid of line (2D) or triangle (3D) cells through meshio: ``.vtu``
 (XML) or ``.vtk`` (legacy). Each element carries two cell arrays: ``cell``, the
 mesh cell it lies in, and ``size``, its length or area. The file appears in
@@ -140,7 +140,7 @@ def read_contour(path, *, plane_axes=None, dimension: int = 3):
     """
     import meshio
 
-    from ..analysis._contour import Contour
+    from ..model.contour import Contour
 
     path = Path(path)
     _format_of(path)

@@ -6,6 +6,7 @@ import numpy as np
 
 from ..errors import UnsupportedMeshError
 from ._grouping import CHUNK
+from .corners import corner_sum
 
 
 _G = 0.5 - 0.5 / np.sqrt(3.0), 0.5 + 0.5 / np.sqrt(3.0)  # 2-point Gauss on [0, 1]
@@ -187,13 +188,7 @@ def _triple(a: list, b: list, c: list) -> np.ndarray:
 
 def _corner_mean(P: list) -> list:
     """Per coordinate, the mean of the corners (summed in corner order)."""
-    out = []
-    for i in range(len(P[0])):
-        total = P[0][i] + P[1][i]
-        for j in range(2, len(P)):
-            total += P[j][i]
-        out.append(total / len(P))
-    return out
+    return [corner_sum(p[i] for p in P) / len(P) for i in range(len(P[0]))]
 
 
 def _simplex_columns(P: list):

@@ -152,11 +152,12 @@ def analyse_step(step, options, *, contour_dir: str | None = None, reported_mesh
             flux = conservation.open_boundary_flux(mesh, u_point, ind, velocity_location="point")
             m.update({k: v for k, v in flux.items() if k != "open_boundary"})
             m["open_boundary"] = bool(flux["open_boundary"])
-    contour = None
+    contour = extremes = None
     if "interface" in options.analyses or "droplets" in options.analyses:
-        contour = interface.find_interface(mesh, ind.point, level=options.level)
+        contour, extremes = interface.find_interface(mesh, ind.point, level=options.level, return_extremes=True)
     if "interface" in options.analyses:
-        m.update(interface.interface_metrics(mesh, ind, level=options.level, contour=contour))
+        m.update(interface.interface_metrics(mesh, ind, level=options.level, contour=contour,
+                                                extremes=extremes))
         if contour_dir is not None:
             from ..io import write_contour
 

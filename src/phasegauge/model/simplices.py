@@ -1,0 +1,527 @@
+"""Cells as triangles and tetrahedra: the one conforming split, and what is read from it.
+
+Contours, width integrals, plane sections, box clipping and resampling all work on the
+piecewise-linear interpolant of point values on one split of the cells into simplices
+(:func:`split_cells`). The split conforms: a face shared by two cells is cut into the same
+triangles from both sides, so the interpolant is continuous across cells and the split
+leaves neither gaps nor overlaps.
+
+How each cell is split (tables in :mod:`._split_tables`):
+
+* triangles and tetrahedra stay whole; quads and polygons split along diagonals from
+  corner 0 or, with ``quads='centre'``, about their corner mean (both conform in 2D,
+  where edges are never split);
+* hexahedra, wedges and pyramids take the few-simplex table (6, 3 and 2 tetrahedra)
+  when each of their quad faces is flat and is cut along the same diagonal by the
+  cell on its other side (or is on the boundary);
+* a quad face that is bent, or whose two sides' tables cut it along different
+  diagonals, gets a face centre and is split in four about it; a hexahedron or wedge
+  with such a face is coned from its cell centre to all of its face triangles (its
+  other quad faces cut along the diagonal both sides use), a pyramid from its apex.
+
+A centre carries the mean of its corners, coordinates and values alike: the bilinear
+/ trilinear value there, so a linear field is reproduced exactly. Which cells are coned
+and which faces centred depends on the mesh only: worked out once per mesh
+(:meth:`Mesh.memo`), so a series pays for it once. Every choice reads local corner
+orders, flatness and which points a diagonal joins, never the numbers a file gives its
+points or cells: renumbering either leaves the split (and every result) unchanged.
+
+References
+----------
+.. [1] Dompierre, J., Labbe, P., Vallet, M.-G. and Camarero, R. (1999), "How to
+   subdivide pyramids, prisms and hexahedra into tetrahedra", 8th International
+   Meshing Roundtable (splits of these cells, and when they conform across faces).
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+from functools import cached_property
+
+import numpy as np
+
+from .corners import corner_mean
+from ._grouping import sort_small_rows
+from ._split_tables import CONED_TYPES, TABLE, TABLE_DIAGONALS
+from .cells import FACES
+from .mesh import Mesh
+
+__all__ = ["SimplexSplit", "split_cells", "needs_centres", "grid_corner_steps", "simplex_measures", "clip_simplices"]
+
+#: a quad face is flat when its corners' volume is below this share of its size cubed
+_FLAT = 1e-10
+#: rows per chunk of the mesh-only passes (the temporaries stay in cache)
+_CHUNK = 1 << 15
+
+
+# --------------------------------------------------------------------------- the split plan
+
+def _flat_faces(cell_type: str, X) -> np.ndarray:
+    """True per quad face (in ``FACES`` order, quads only) whose four corners lie in a plane.
+
+    ``X``: corner coordinates, an array (n, k, 3), or per corner the list of its three
+    coordinate arrays (n,). Returns a bool array (n, number of quad faces).
+    """
+    P = [[X[:, j, i] for i in range(3)] for j in range(X.shape[1])] if isinstance(X, np.ndarray) else X
+    quads = [face for face in FACES[cell_type] if len(face) == 4]
+    flat = np.empty((P[0][0].shape[0], len(quads)), dtype=bool)
+    for q, face in enumerate(quads):
+        p0, p1, p2, p3 = (P[j] for j in face)
+        e1 = [p1[i] - p0[i] for i in range(3)]
+        e2 = [p2[i] - p0[i] for i in range(3)]
+        e3 = [p3[i] - p0[i] for i in range(3)]
+        # e1 . (e2 x e3), term by term as np.cross and a dot product form it
+        volume = np.abs(e1[0] * (e2[1] * e3[2] - e2[2] * e3[1]) + e1[1] * (e2[2] * e3[0] - e2[0] * e3[2])
+                        + e1[2] * (e2[0] * e3[1] - e2[1] * e3[0]))
+        size = e2[0] * e2[0] + e2[1] * e2[1] + e2[2] * e2[2]
+        size *= np.sqrt(size)  # |e2| cubed (as ** 1.5, without the power function)
+        flat[:, q] = volume <= _FLAT * size
+    return flat
+
+
+def _quad_positions(cell_type: str) -> list:
+    return [j for j, face in enumerate(FACES[cell_type]) if len(face) == 4]
+
+
+def _diagonal_keys(cell_type: str, conn: np.ndarray, n_points: int) -> np.ndarray:
+    """Per cell and quad face (n, number of quad faces), the diagonal its split cuts the face along,
+    as ``low id * n_points + high id`` of the diagonal's ends."""
+    conn = conn.astype(np.int64, copy=False)
+    positions = _quad_positions(cell_type)
+    keys = np.empty((conn.shape[0], len(positions)), dtype=np.int64)
+    for q, j in enumerate(positions):
+        i, k = TABLE_DIAGONALS[cell_type][j]
+        a, c = conn[:, i], conn[:, k]
+        key = keys[:, q]
+        np.minimum(a, c, out=key)
+        key *= n_points
+        key += np.maximum(a, c)
+    return keys
+
+
+def grid_corner_steps(mesh: Mesh) -> np.ndarray | None:
+    """Grid-index steps (8,) from a cell's lowest grid point to its VTK corners, or None (cached per mesh).
+
+    Not None for a 3D regular grid (:attr:`Mesh.regular_grid`) whose hexahedra all
+    list their corners in the VTK order from their lowest grid corner, and whose
+    points lie exactly on the grid axes: every cell is then a translate of the others
+    in index space with exactly flat faces, so the table cuts each shared face along
+    the same diagonal from both sides (no face numbering needed to know it).
+    """
+
+    def compute():
+        grid = mesh.regular_grid
+        if mesh.dimension != 3 or grid is None or mesh.n_cells == 0:
+            return None
+        shape = grid.point_shape
+        offsets = np.array([(0, 0, 0), (1, 0, 0), (1, 1, 0), (0, 1, 0),
+                            (0, 0, 1), (1, 0, 1), (1, 1, 1), (0, 1, 1)])
+        steps = offsets @ np.array([shape[1] * shape[2], shape[2], 1])
+        start = 0
+        for block in mesh.blocks:
+            cells = grid.cell_index[start:start + len(block)]
+            start += len(block)
+            base = np.ravel_multi_index(np.unravel_index(cells, grid.cell_shape), shape)
+            for corner, step in enumerate(steps):
+                if not np.array_equal(grid.point_index[block.connectivity[:, corner]], base + step):
+                    return None
+        index = np.unravel_index(grid.point_index, shape)
+        for d, axis_values in enumerate(grid.axes):
+            if not np.array_equal(mesh.coordinates[:, d], axis_values[index[d]]):
+                return None
+        return steps
+
+    return mesh.memo("grid_corner_steps", compute)
+
+
+@dataclass(frozen=True)
+class _ConedCells:
+    """Of one block: which cells are coned, and per cell which quad faces get a centre."""
+
+    coned: np.ndarray  # (n,) bool
+    centred: np.ndarray  # (n, number of quad faces) bool
+
+
+def _split_plan(mesh: Mesh) -> list:
+    """Per block, None (every cell takes the table) or its :class:`_ConedCells` (cached per mesh).
+
+    A quad face gets a centre when it is bent (seen so from either side) or when the
+    two cells sharing it cut it along different diagonals; a cell with such a face is
+    coned. Blocks of other types: None.
+    """
+
+    def compute():
+        kinds = [block.cell_type for block in mesh.blocks]
+        if mesh.dimension != 3 or not any(kind in CONED_TYPES for kind in kinds):
+            return [None] * len(kinds)
+        if grid_corner_steps(mesh) is not None:  # a grid in table order: every face flat, cut alike
+            return [None] * len(kinds)
+        numbers = mesh.face_numbers()
+        n_faces = 1 + max(int(ids.max()) for ids, kind in zip(numbers, kinds)
+                          if kind in CONED_TYPES and ids.size)
+        centred = np.zeros(n_faces, dtype=bool)  # bent faces, then also those cut two ways
+        last = np.full(n_faces, -1, dtype=np.int64)
+        n_points = np.int64(max(mesh.n_points, 1))
+        columns = [np.ascontiguousarray(mesh.coordinates[:, i]) for i in range(3)]
+        for kind, block, ids in zip(kinds, mesh.blocks, numbers):
+            if kind not in CONED_TYPES:
+                continue
+            positions = _quad_positions(kind)
+            conn = block.connectivity
+            for lo in range(0, len(block), _CHUNK):  # in chunks: the temporaries stay in cache
+                part = conn[lo:lo + _CHUNK]
+                corners = [[x[part[:, j]] for x in columns] for j in range(part.shape[1])]
+                flat = _flat_faces(kind, corners)
+                keys = _diagonal_keys(kind, part, n_points)
+                for q, j in enumerate(positions):
+                    face = ids[lo:lo + _CHUNK, j]
+                    centred[face[~flat[:, q]]] = True
+                    last[face] = keys[:, q]
+        for kind, block, ids in zip(kinds, mesh.blocks, numbers):
+            if kind in CONED_TYPES:  # a face whose other side wrote another diagonal
+                positions = _quad_positions(kind)
+                for lo in range(0, len(block), _CHUNK):
+                    keys = _diagonal_keys(kind, block.connectivity[lo:lo + _CHUNK], n_points)
+                    for q, j in enumerate(positions):
+                        face = ids[lo:lo + _CHUNK, j]
+                        centred[face[last[face] != keys[:, q]]] = True
+        del last
+        out = []
+        for kind, ids in zip(kinds, numbers):
+            if kind not in CONED_TYPES:
+                out.append(None)
+                continue
+            faces = centred[ids[:, _quad_positions(kind)]]
+            coned = faces.any(axis=1)
+            out.append(_ConedCells(coned, faces) if coned.any() else None)
+        return out
+
+    return mesh.memo("simplex_split_plan", compute)
+
+
+# --------------------------------------------------------------------------- the split
+
+@dataclass(frozen=True, eq=False)
+class SimplexSplit:
+    """Simplices covering a set of cells, with the piecewise-linear field on them.
+
+    Attributes
+    ----------
+    points : ndarray of shape (n_points, dim)
+        The mesh's analysis coordinates (:attr:`Mesh.coordinates`), the first vertices.
+    simplices : ndarray of shape (n_simplices, dim + 1), int64
+        Vertex ids of each triangle (2D) or tetrahedron (3D): below ``n_points``
+        a mesh point, from there on an added centre.
+    owner : ndarray of shape (n_simplices,), int64
+        The mesh cell each simplex belongs to.
+    centres : tuple of (ids, corners) pairs
+        The added vertices: ``ids`` (n,) their vertex ids, consecutive from
+        ``n_points`` on; ``corners`` (n, k) the mesh points whose mean they are
+        (coordinates and values alike). Empty when the split added none.
+    point_values : ndarray of shape (n_points,), optional
+        Values at the mesh points (c), when the split was asked for them.
+    """
+
+    points: np.ndarray
+    simplices: np.ndarray
+    owner: np.ndarray
+    centres: tuple = ()
+    point_values: np.ndarray | None = None
+
+    @property
+    def n_points(self) -> int:
+        return int(self.points.shape[0])
+
+    @property
+    def n_vertices(self) -> int:
+        """Mesh points and added centres."""
+        return self.n_points + sum(int(ids.size) for ids, _ in self.centres)
+
+    @cached_property
+    def coordinates(self) -> np.ndarray:
+        """Coordinates of every vertex, shape (n_vertices, dim)."""
+        return self.centre_means(self.points)
+
+    @cached_property
+    def values(self) -> np.ndarray | None:
+        """``point_values`` at every vertex, shape (n_vertices,); None without them."""
+        return None if self.point_values is None else self.centre_means(self.point_values)
+
+    def centre_means(self, point_values: np.ndarray) -> np.ndarray:
+        """Values at every vertex from values at the mesh points, centres as their corners' means.
+
+        ``point_values`` has shape (n_points,) or (n_points, q); the result
+        (n_vertices,) or (n_vertices, q). Without centres, ``point_values`` itself.
+        """
+        if not self.centres:
+            return point_values
+        return np.concatenate([point_values] + [corner_mean(point_values, corners) for _, corners in self.centres])
+
+    def corner_values(self, point_values: np.ndarray) -> np.ndarray:
+        """Values at the corners of every simplex, shape (n_simplices, dim + 1) + ``point_values.shape[1:]``.
+
+        The centres' values are formed for the centres only (no copy of ``point_values``).
+        """
+        S = self.simplices
+        if not self.centres:
+            return point_values[S]
+        added = np.concatenate([corner_mean(point_values, corners) for _, corners in self.centres])
+        n = self.n_points
+        extra = S >= n
+        out = point_values[np.where(extra, 0, S)]
+        out[extra] = added[S[extra] - n]
+        return out
+
+    @property
+    def measures(self) -> np.ndarray:
+        """Unsigned simplex areas / volumes, shape (n_simplices,)."""
+        return simplex_measures(self.corner_values(self.points))
+
+
+def _block_rows(mesh: Mesh, cells) -> list:
+    """Per block, the local rows of the wanted cells (None: all of them)."""
+    offsets = mesh.block_offsets
+    if cells is None:
+        return [None] * len(mesh.blocks)
+    chosen = np.asarray(cells)
+    if chosen.dtype == bool:
+        if chosen.shape != (mesh.n_cells,):
+            raise ValueError(f"a cell mask needs shape ({mesh.n_cells},), found {chosen.shape}")
+        out = []
+        for start, stop in zip(offsets[:-1], offsets[1:]):
+            keep = chosen[start:stop]
+            out.append(None if keep.all() else np.flatnonzero(keep))
+        return out
+    chosen = chosen.astype(np.int64, copy=False)
+    bounds = np.searchsorted(chosen, offsets)
+    return [chosen[a:z] - start for a, z, start in zip(bounds[:-1], bounds[1:], offsets[:-1])]
+
+
+def _face_triangles(cell_type: str, j: int, F: np.ndarray) -> tuple:
+    """The two triangles (n, 3) of quad face j (corners ``F`` (n, 4) in face order), cut along the
+    diagonal the cell's table uses."""
+    face = FACES[cell_type][j]
+    if TABLE_DIAGONALS[cell_type][j] == (face[0], face[2]):
+        return F[:, [0, 1, 2]], F[:, [0, 2, 3]]  # along the face's corners 0-2
+    return F[:, [1, 2, 3]], F[:, [1, 3, 0]]  # along 1-3
+
+
+class _Pieces:
+    """The simplices, owners and added centres of a split, as they are built."""
+
+    def __init__(self, n_points: int):
+        self.n_points, self.n_added = n_points, 0
+        self.simplices, self.owners, self.centres = [], [], []
+
+    def add(self, nodes: np.ndarray, owner: np.ndarray) -> None:
+        self.simplices.append(nodes)
+        self.owners.append(owner)
+
+    def add_centres(self, corners: np.ndarray) -> np.ndarray:
+        ids = self.n_points + self.n_added + np.arange(corners.shape[0])
+        self.n_added += corners.shape[0]
+        self.centres.append((ids, corners))
+        return ids
+
+
+def split_cells(mesh: Mesh, cells=None, *, values=None, quads: str = "diagonal") -> SimplexSplit:
+    """Split the cells (or some of them) into triangles or tetrahedra, conforming across faces.
+
+    Parameters
+    ----------
+    mesh : Mesh
+    cells : ndarray, optional
+        The cells to split: a mask of shape (n_cells,), or cell indices in
+        increasing order; default all.
+    values : ndarray of shape (n_points,), optional
+        Point values to carry (:attr:`SimplexSplit.values`, centres as their
+        corners' means).
+    quads : {'diagonal', 'centre'}
+        2D cells: quads split along the diagonal 0-2 and polygons in a fan from
+        corner 0, or both about their corner mean (quads in four triangles;
+        no diagonal is preferred). 3D cells are split as the module notes say.
+
+    Returns
+    -------
+    SimplexSplit
+        Per block, the table's simplices first (simplex by simplex, each over
+        the block's cells), then those of coned cells; the centred quad faces'
+        simplices last. Face centres are shared by the cells on both sides.
+
+    Raises
+    ------
+    ValueError
+        An unknown ``quads`` or a mask of the wrong shape.
+    """
+    if quads not in ("diagonal", "centre"):
+        raise ValueError(f"quads must be 'diagonal' or 'centre', not {quads!r}")
+    plan = _split_plan(mesh) if mesh.dimension == 3 else [None] * len(mesh.blocks)
+    pieces = _Pieces(mesh.n_points)
+    pending = []  # centred quad faces: (corners (n, 4), apex ids (n,), owners (n,), face numbers (n,))
+    for b, (block, start, rows) in enumerate(zip(mesh.blocks, mesh.block_offsets[:-1], _block_rows(mesh, cells))):
+        conn = block.connectivity if rows is None else block.connectivity[rows]
+        ids = start + (np.arange(len(block)) if rows is None else rows)
+        if len(ids) == 0:
+            continue
+        kind = block.cell_type
+        if kind in ("triangle", "tetra"):
+            pieces.add(conn, ids)
+        elif kind in ("quad", "polygon"):
+            k = conn.shape[1]
+            if quads == "centre":
+                centre = pieces.add_centres(conn)
+                for i in range(k):
+                    pieces.add(np.column_stack([conn[:, i], conn[:, (i + 1) % k], centre]), ids)
+            else:
+                for local in (TABLE["quad"] if kind == "quad" else [(0, i, i + 1) for i in range(1, k - 1)]):
+                    pieces.add(conn[:, list(local)], ids)
+        elif kind in CONED_TYPES:
+            coned = None if plan[b] is None else (plan[b].coned if rows is None else plan[b].coned[rows])
+            if coned is not None and not coned.any():
+                coned = None
+            if coned is None or not coned.all():
+                conn_t, ids_t = (conn, ids) if coned is None else (conn[~coned], ids[~coned])
+                for local in TABLE[kind]:
+                    pieces.add(conn_t[:, list(local)], ids_t)
+            if coned is not None:
+                local = np.flatnonzero(coned) if rows is None else rows[coned]
+                pending += _cone(mesh, b, local, conn[coned], ids[coned], plan[b].centred[local], pieces)
+        else:  # pragma: no cover - the mesh model accepts no other type
+            raise ValueError(f"no simplex split for cell type '{kind}'")
+    if pending:
+        _split_centred_faces(pending, pieces)
+    if pieces.simplices:
+        simplices = np.concatenate(pieces.simplices).astype(np.int64, copy=False)
+        owner = np.concatenate(pieces.owners).astype(np.int64, copy=False)
+    else:
+        simplices = np.zeros((0, mesh.dimension + 1), dtype=np.int64)
+        owner = np.zeros(0, dtype=np.int64)
+    point_values = None if values is None else np.asarray(values)
+    return SimplexSplit(mesh.coordinates, simplices, owner, tuple(pieces.centres), point_values)
+
+
+def _cone(mesh: Mesh, b: int, local: np.ndarray, conn: np.ndarray, ids: np.ndarray, centred: np.ndarray,
+          pieces: _Pieces) -> list:
+    """Cone coned cells of block ``b`` (rows ``local``): hexahedra and wedges from an added cell
+    centre, pyramids from the apex. Returns their centred quad faces for :func:`_split_centred_faces`."""
+    kind = mesh.blocks[b].cell_type
+    numbers = mesh.face_numbers()[b][local]
+    if kind == "pyramid":  # coned only when its base is centred
+        return [(conn[:, [0, 3, 2, 1]], conn[:, 4], ids, numbers[:, 0])]
+    centre = pieces.add_centres(conn)
+    pending = []
+    q = 0
+    for j, face in enumerate(FACES[kind]):
+        F = conn[:, list(face)]
+        if len(face) == 3:
+            pieces.add(np.column_stack([F, centre]), ids)
+            continue
+        on = centred[:, q]
+        q += 1
+        if on.any():
+            pending.append((F[on], centre[on], ids[on], numbers[on, j]))
+        if not on.all():
+            off = ~on
+            for triangle in _face_triangles(kind, j, F[off]):
+                pieces.add(np.column_stack([triangle, centre[off]]), ids[off])
+    return pending
+
+
+def _split_centred_faces(pending: list, pieces: _Pieces) -> None:
+    """Four tetrahedra per centred quad face and cell: a face triangle about the shared face
+    centre, joined to the cell's apex (its centre, or a pyramid's top)."""
+    faces = np.concatenate([p[0] for p in pending])
+    apex = np.concatenate([p[1] for p in pending])
+    own = np.concatenate([p[2] for p in pending])
+    face_id = np.concatenate([p[3] for p in pending])
+    # one centre per distinct face: the mesh's face numbering groups the two sides of a face;
+    # the centre is the mean of its corners in sorted order (the same from either side)
+    first = np.zeros(int(face_id.max()) + 1, dtype=np.int64)
+    seen = np.zeros(first.size, dtype=bool)
+    seen[face_id] = True
+    first[face_id[::-1]] = np.arange(face_id.size - 1, -1, -1)
+    distinct = np.nonzero(seen)[0]
+    compact = np.cumsum(seen) - 1
+    centre = pieces.add_centres(sort_small_rows(faces[first[distinct]]))[compact[face_id]]
+    for i in range(4):
+        pieces.add(np.column_stack([faces[:, i], faces[:, (i + 1) % 4], centre, apex]), own)
+
+
+def needs_centres(mesh: Mesh, cells: np.ndarray, *, quads: str = "diagonal") -> bool:
+    """True when :func:`split_cells` of these ``cells`` (as there) adds centres."""
+    plan = _split_plan(mesh) if mesh.dimension == 3 else [None] * len(mesh.blocks)
+    for block, rows, coned in zip(mesh.blocks, _block_rows(mesh, cells), plan):
+        if rows is not None and rows.size == 0:
+            continue
+        if quads == "centre" and block.cell_type in ("quad", "polygon"):
+            return True
+        if coned is not None and (coned.coned.any() if rows is None else coned.coned[rows].any()):
+            return True
+    return False
+
+
+# --------------------------------------------------------------------------- simplex geometry
+
+def simplex_measures(X: np.ndarray) -> np.ndarray:
+    """Unsigned areas (triangles) or volumes (tetrahedra) of X, shape (n, d + 1, d)."""
+    E = X[:, 1:, :] - X[:, :1, :]
+    if X.shape[2] == 2:
+        return 0.5 * np.abs(E[:, 0, 0] * E[:, 1, 1] - E[:, 0, 1] * E[:, 1, 0])
+    return np.abs(np.einsum("ni,ni->n", E[:, 0], np.cross(E[:, 1], E[:, 2]))) / 6.0
+
+
+def _edge_point(X: np.ndarray, s: np.ndarray, i: int, j: int) -> np.ndarray:
+    """Where the edge i-j (s_i <= 0 < s_j) meets s = 0."""
+    t = s[:, i] / (s[:, i] - s[:, j])
+    return X[:, i] + t[:, None] * (X[:, j] - X[:, i])
+
+
+def _prism(a0, a1, a2, b0, b1, b2) -> list:
+    """Three tetrahedra filling the prism with end triangles a and b (a_k joined to b_k)."""
+    return [np.stack(t, axis=1) for t in ((a0, a1, a2, b2), (a0, a1, b1, b2), (a0, b0, b1, b2))]
+
+
+def clip_simplices(X: np.ndarray, parent: np.ndarray, s: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    """The parts of simplices where the linear function s <= 0.
+
+    Parameters
+    ----------
+    X : ndarray of shape (n, d + 1, d)
+        Corner coordinates of triangles (d = 2) or tetrahedra (d = 3).
+    parent : ndarray of shape (n,)
+        A label carried over to the pieces.
+    s : ndarray of shape (n, d + 1)
+        Signed distance (or any affine function) at the corners.
+
+    Returns
+    -------
+    X, parent
+        Simplices covering exactly the kept part.
+    """
+    order = np.argsort(s, axis=1, kind="stable")
+    X = np.take_along_axis(X, order[:, :, None], axis=1)
+    s = np.take_along_axis(s, order, axis=1)
+    inside = np.count_nonzero(s <= 0, axis=1)
+    k = X.shape[1]
+    pieces, labels = [X[inside == k]], [parent[inside == k]]
+    one = inside == 1
+    Xa, sa = X[one], s[one]
+    pieces.append(np.stack([Xa[:, 0]] + [_edge_point(Xa, sa, 0, j) for j in range(1, k)], axis=1))
+    labels.append(parent[one])
+    two = inside == 2
+    Xb, sb = X[two], s[two]
+    if k == 3:
+        p12, p02 = _edge_point(Xb, sb, 1, 2), _edge_point(Xb, sb, 0, 2)
+        pieces += [np.stack([Xb[:, 0], Xb[:, 1], p12], axis=1), np.stack([Xb[:, 0], p12, p02], axis=1)]
+        labels += [parent[two]] * 2
+    else:
+        p02, p03 = _edge_point(Xb, sb, 0, 2), _edge_point(Xb, sb, 0, 3)
+        p12, p13 = _edge_point(Xb, sb, 1, 2), _edge_point(Xb, sb, 1, 3)
+        pieces += _prism(Xb[:, 0], p02, p03, Xb[:, 1], p12, p13)
+        labels += [parent[two]] * 3
+        three = inside == 3
+        Xc, sc = X[three], s[three]
+        tops = [_edge_point(Xc, sc, j, 3) for j in (0, 1, 2)]
+        pieces += _prism(Xc[:, 0], Xc[:, 1], Xc[:, 2], *tops)
+        labels += [parent[three]] * 3
+    return np.concatenate(pieces), np.concatenate(labels)

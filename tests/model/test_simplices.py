@@ -1,0 +1,213 @@
+"""The one conforming simplex split: shared faces cut alike, measures and linear fields exact.
+
+Checks against things the split does not define itself: the faces of the mesh (each shared face
+must be cut into the same triangles from both of its cells, and cut completely), the boundary of
+the unit square / cube (exact geometry), cell sizes from pyvista's ``compute_cell_sizes`` (VTK),
+and linear fields (reproduced exactly by any linear interpolation).
+"""
+
+import itertools
+from collections import Counter, defaultdict
+
+import numpy as np
+import pytest
+
+from phasegauge.meshgen import grid_mesh, to_meshio
+from phasegauge.model.cells import FACES
+from phasegauge.model.mesh import Mesh
+from phasegauge.model.simplices import split_cells
+
+#: a cube symmetry per row, keeping VTK's corner order rules: quarter turns about the axis 0-4 and
+#: the cell upside down (the same hexahedron, its corners listed from another corner)
+_HEX_TURNS = np.array([(0, 1, 2, 3, 4, 5, 6, 7), (1, 2, 3, 0, 5, 6, 7, 4), (2, 3, 0, 1, 6, 7, 4, 5),
+                       (3, 0, 1, 2, 7, 4, 5, 6), (4, 7, 6, 5, 0, 3, 2, 1), (5, 4, 7, 6, 1, 0, 3, 2)])
+
+
+def _turned(mesh: Mesh, seed: int = 0) -> Mesh:
+    """The same hexahedra with their corners listed from a random corner each: shared faces are
+    then cut along different diagonals by the two cells' tables (and need a centre)."""
+    rng = np.random.default_rng(seed)
+    conn = mesh.blocks[0].connectivity
+    turns = _HEX_TURNS[rng.integers(0, len(_HEX_TURNS), conn.shape[0])]
+    return Mesh(mesh.points, [("hexahedron", np.take_along_axis(conn, turns, axis=1))])
+
+
+def _mesh(kind: str, jitter: float = 0.0) -> Mesh:
+    if kind == "turned":
+        return _turned(grid_mesh((3, 3, 3), kind="hexahedron", jitter=jitter, seed=2), seed=5)
+    if kind in ("quad", "polygon", "mixed2d", "triangle"):
+        return grid_mesh((5, 4), kind="mixed" if kind == "mixed2d" else kind, jitter=jitter, seed=2)
+    return grid_mesh((3, 3, 3), kind=kind, jitter=jitter, seed=2)
+
+
+CASES = [("quad", 0.0), ("quad", 0.25), ("polygon", 0.25), ("mixed2d", 0.25), ("triangle", 0.25),
+         ("tetra", 0.25), ("hexahedron", 0.0), ("hexahedron", 0.25), ("turned", 0.0), ("wedge", 0.0),
+         ("wedge", 0.25), ("pyramid", 0.0), ("pyramid", 0.25), ("mixed", 0.0), ("mixed", 0.25)]
+
+
+def _local_faces(block) -> list:
+    if block.cell_type == "polygon":
+        k = block.connectivity.shape[1]
+        return [(i, (i + 1) % k) for i in range(k)]
+    return FACES[block.cell_type]
+
+
+def _area(points: np.ndarray) -> float:
+    """Length of a segment or area of a triangle, points (2 or 3, dim)."""
+    if len(points) == 2:
+        return float(np.linalg.norm(points[1] - points[0]))
+    a, b = points[1] - points[0], points[2] - points[0]
+    if a.size == 2:
+        return 0.5 * abs(a[0] * b[1] - a[1] * b[0])
+    return 0.5 * float(np.linalg.norm(np.cross(a, b)))
+
+
+def _face_triangulations(mesh: Mesh, split) -> dict:
+    """Per face of the mesh (its corner points), per cell around it: the split's facets on that face."""
+    dim = mesh.dimension
+    centre_of = {}
+    for ids, corners in split.centres:
+        for vertex, around in zip(ids.tolist(), corners.tolist()):
+            centre_of[vertex] = frozenset(around)
+    facets_of = defaultdict(set)
+    for simplex, owner in zip(split.simplices.tolist(), split.owner.tolist()):
+        for facet in itertools.combinations(sorted(simplex), dim):
+            facets_of[owner].add(facet)
+    faces = defaultdict(dict)
+    for block, start in zip(mesh.blocks, mesh.block_offsets[:-1]):
+        for row, conn in enumerate(block.connectivity.tolist()):
+            cell = int(start) + row
+            for face in _local_faces(block):
+                corners = frozenset(conn[j] for j in face)
+                faces[corners][cell] = {f for f in facets_of[cell]
+                                        if all(v in corners or centre_of.get(v) == corners for v in f)}
+    return faces
+
+
+@pytest.mark.parametrize("kind,jitter", CASES)
+@pytest.mark.parametrize("quads", ["diagonal", "centre"])
+def test_shared_faces_are_cut_alike_from_both_sides(kind, jitter, quads):
+    mesh = _mesh(kind, jitter)
+    split = split_cells(mesh, quads=quads)
+    X = split.coordinates
+    shared = 0
+    for corners, sides in _face_triangulations(mesh, split).items():
+        cut = list(sides.values())
+        # the same triangles (edges in 2D) from every cell around the face ...
+        assert all(c == cut[0] for c in cut), (kind, sorted(corners))
+        shared += len(cut) == 2
+        # ... and the whole face: their areas add up to the face's, taken as the fan of triangles
+        # about its corner mean (the face itself when flat; a bent face is always cut so)
+        ring = [p for p in _ring(mesh, corners)]
+        centre = X[ring].mean(axis=0)
+        whole = (_area(X[ring]) if len(ring) == 2 else
+                 sum(_area(np.array([X[ring[i]], X[ring[(i + 1) % len(ring)]], centre])) for i in range(len(ring))))
+        assert sum(_area(X[list(f)]) for f in cut[0]) == pytest.approx(whole, rel=1e-12)
+    assert shared > 0
+
+
+def _ring(mesh: Mesh, corners: frozenset) -> list:
+    """The corners of a face in the order some cell lists them (around the face)."""
+    for block in mesh.blocks:
+        for conn in block.connectivity.tolist():
+            if corners <= set(conn):
+                for face in _local_faces(block):
+                    if frozenset(conn[j] for j in face) == corners:
+                        return [conn[j] for j in face]
+    raise AssertionError("face not found")
+
+
+@pytest.mark.parametrize("kind,jitter", CASES)
+def test_split_leaves_no_gap_inside_and_covers_the_boundary(kind, jitter):
+    # a facet inside the domain belongs to exactly two simplices; those of one simplex only make up
+    # the boundary of the unit square / cube: perimeter 4 or surface 6 (exact geometry)
+    mesh = _mesh(kind, jitter)
+    split = split_cells(mesh, quads="centre")
+    count = Counter(facet for simplex in split.simplices.tolist()
+                    for facet in itertools.combinations(sorted(simplex), mesh.dimension))
+    assert max(count.values()) == 2
+    outer = sum(_area(split.coordinates[list(f)]) for f, n in count.items() if n == 1)
+    assert outer == pytest.approx(4.0 if mesh.dimension == 2 else 6.0, rel=1e-12)
+
+
+@pytest.mark.parametrize("kind,jitter", CASES)
+def test_simplex_measures_add_up_to_vtk_cell_sizes(kind, jitter):
+    # pyvista / VTK compute_cell_sizes (wedge volumes come out negative in VTK's orientation: abs)
+    import pyvista
+
+    mesh = _mesh(kind, jitter)
+    sizes = pyvista.from_meshio(to_meshio(mesh)).compute_cell_sizes(
+        length=False, area=mesh.dimension == 2, volume=mesh.dimension == 3)
+    reference = np.abs(sizes.cell_data["Area" if mesh.dimension == 2 else "Volume"])
+    for quads in ("diagonal", "centre"):
+        split = split_cells(mesh, quads=quads)
+        ours = np.bincount(split.owner, split.measures, minlength=mesh.n_cells)
+        np.testing.assert_allclose(ours, reference, rtol=1e-12)
+
+
+@pytest.mark.parametrize("kind,jitter", CASES)
+def test_linear_field_is_reproduced_exactly(kind, jitter):
+    # analytic: a centre carries its corners' mean, which is the linear field at the centre, so the
+    # piecewise-linear interpolant on the simplices is the linear field itself
+    mesh = _mesh(kind, jitter)
+    coef = np.array([0.7, -1.3, 0.4])[:mesh.dimension]
+    values = 0.3 + mesh.coordinates @ coef
+    split = split_cells(mesh, values=values, quads="centre")
+    np.testing.assert_allclose(split.values, 0.3 + split.coordinates @ coef, rtol=0, atol=1e-13)
+    # every simplex's gradient is the field's
+    X, v = split.corner_values(mesh.coordinates), split.corner_values(values)
+    gradient = np.linalg.solve(X[:, 1:] - X[:, :1], (v[:, 1:] - v[:, :1])[..., None])[..., 0]
+    np.testing.assert_allclose(gradient, np.broadcast_to(coef, gradient.shape), rtol=0, atol=1e-10)
+
+
+def _keyed(split, point_names=None) -> Counter:
+    """The split's simplices with their cells, vertices named by point (mesh points) or corner set
+    (centres): comparable between splits of differently numbered meshes."""
+    name = {}
+    for ids, corners in split.centres:
+        for vertex, around in zip(ids.tolist(), corners.tolist()):
+            name[vertex] = frozenset(around if point_names is None else point_names[around].tolist())
+    def key(v):
+        return name[v] if v in name else (v if point_names is None else int(point_names[v]))
+    return Counter((owner, frozenset(map(key, simplex)))
+                   for simplex, owner in zip(split.simplices.tolist(), split.owner.tolist()))
+
+
+@pytest.mark.parametrize("kind", ["wedge", "mixed", "pyramid", "turned"])
+def test_renumbering_points_leaves_the_split_alone(kind):
+    # the tables read local corner orders and compare diagonals by the points they join, never by
+    # point numbers (the earlier wedge rule cut faces through their lowest point number, so
+    # renumbering the points moved contours by O(h^2))
+    mesh = _mesh(kind, 0.25)
+    rng = np.random.default_rng(4)
+    perm = rng.permutation(mesh.n_points)  # new point i is old point perm[i]
+    new_number = np.empty_like(perm)
+    new_number[perm] = np.arange(mesh.n_points)
+    renumbered = Mesh(mesh.points[perm], [(b.cell_type, new_number[b.connectivity]) for b in mesh.blocks])
+    assert _keyed(split_cells(renumbered), point_names=perm) == _keyed(split_cells(mesh))
+
+
+@pytest.mark.parametrize("kind,jitter", [("turned", 0.0), ("mixed", 0.25), ("wedge", 0.0), ("quad", 0.25)])
+def test_splitting_some_cells_gives_their_part_of_the_whole_split(kind, jitter):
+    # the contour and the width split only the cells the level crosses; sections only the cells a
+    # plane crosses: the same simplices as in the split of every cell, by mask or by index
+    mesh = _mesh(kind, jitter)
+    chosen = np.random.default_rng(1).random(mesh.n_cells) < 0.4
+    whole = _keyed(split_cells(mesh, quads="centre"))
+    part = Counter({k: n for k, n in whole.items() if chosen[k[0]]})
+    assert _keyed(split_cells(mesh, chosen, quads="centre")) == part
+    assert _keyed(split_cells(mesh, np.flatnonzero(chosen), quads="centre")) == part
+
+
+def test_table_cells_take_the_few_simplex_tables():
+    # a regular grid in VTK order: six tetrahedra per hexahedron, no centre; quads in two triangles
+    # along a diagonal or four about their centre
+    grid = grid_mesh((3, 3, 3))
+    split = split_cells(grid)
+    assert split.simplices.shape[0] == 6 * grid.n_cells and split.centres == ()
+    quads = grid_mesh((4, 3))
+    assert split_cells(quads).simplices.shape[0] == 2 * quads.n_cells
+    centred = split_cells(quads, quads="centre")
+    assert centred.simplices.shape[0] == 4 * quads.n_cells and centred.n_vertices == quads.n_points + quads.n_cells
+    with pytest.raises(ValueError, match="quads must be"):
+        split_cells(quads, quads="fan")
