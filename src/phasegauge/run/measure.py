@@ -169,6 +169,10 @@ class MeasureOptions:
         text = json.dumps(dataclasses.asdict(self), sort_keys=True, default=str)
         return hashlib.sha256(text.encode()).hexdigest()[:16]
 
+    def step_extra(self, step, indicator):
+        """Extra per-step work for a subclass (kept in ``StepResult.extra``); None here."""
+        return None
+
 
 @dataclass
 class StepResult:
@@ -193,6 +197,7 @@ class StepResult:
     error: PhasegaugeError | None = None  # why the step was skipped
     warning_records: list = field(default_factory=list)  # (category, what, where) of the step's warnings
     dimension: int = 0
+    extra: object = None  # what options.step_extra returned (e.g. c sampled for a comparison)
 
     def labels(self, n_cells: int) -> tuple[np.ndarray, np.ndarray]:
         """Droplet label of every cell (-1: none) and the c dV weights of the labelled cells."""
@@ -262,7 +267,7 @@ def _open(path):
 
 
 def _step_file_hash(info) -> str:
-    from ..report._files import sha256_of
+    from ..io._inputs import sha256_of
 
     return sha256_of(info.path)
 
@@ -445,6 +450,7 @@ def analyse_step(step, options: MeasureOptions, *, contour_dir: str | None = Non
     u_cell, u_point = _velocity(step, options)
     result = StepResult(step.index, step.time, step.info.path, mesh_signature=mesh.signature,
                         dimension=int(mesh.dimension))
+    result.extra = options.step_extra(step, ind)
     m = {"step": step.index, "time": step.time}
     if "conservation" in options.analyses:
         m.update(conservation.conservation_metrics(mesh, ind, densities=options.densities))
@@ -767,8 +773,9 @@ def _finish(series, results, options, out, started, workers, scheduler, resume, 
     result = assemble(series, results, options, notes=notes)
     if out is not None:
         from ..report import write_measure_report
+        from ._report_data import measure_report_data
 
-        write_measure_report(out, result, series=series, started=started,
+        write_measure_report(out, result, **measure_report_data(series, result), started=started,
                              execution={"workers": workers, "scheduler": scheduler, "resume": resume})
     return result
 
