@@ -8,13 +8,14 @@ import numpy as np  # noqa: E402
 import pandas as pd  # noqa: E402
 import pytest  # noqa: E402
 
-from phasegauge.analysis.compare import compare_metrics  # noqa: E402
+from phasegauge.analysis.compare import SamplingGrid, common_grid, compare_metrics, resample_to_grid  # noqa: E402
 from phasegauge.analysis.references import check_rising_bubble  # noqa: E402
 from phasegauge.errors import OptionError  # noqa: E402
 from phasegauge.meshgen import grid_mesh  # noqa: E402
 from phasegauge.report._plots_compare import (plot_interface_overlay, plot_metric_curves,  # noqa: E402
                                               plot_metric_differences, plot_reference_check,
                                               plot_shape_history)
+from phasegauge.run._compare_steps import overlay_arrays  # noqa: E402
 
 
 def _disc(mesh, centre, r, eps=0.02):
@@ -26,15 +27,37 @@ def _disc(mesh, centre, r, eps=0.02):
 def test_interface_overlay(tmp_path, dim, kinds):
     a = grid_mesh((16,) * dim, kind=kinds[0])
     b = grid_mesh((12,) * dim, kind=kinds[1])
-    fig = plot_interface_overlay(a, _disc(a, (0.45,) + (0.5,) * (dim - 1), 0.25), b,
-                                 _disc(b, (0.55,) + (0.5,) * (dim - 1), 0.25), title="t = 1")
+    grid = common_grid(a, b)
+    values_a = resample_to_grid(a, _disc(a, (0.45,) + (0.5,) * (dim - 1), 0.25), grid)
+    values_b = resample_to_grid(b, _disc(b, (0.55,) + (0.5,) * (dim - 1), 0.25), grid)
+    drawn = overlay_arrays(values_a, values_b, grid, level=0.5)
+    assert drawn["axis_names"] == ("x", "y") and drawn["mismatch"].shape == grid.shape[:2]
+    fig = plot_interface_overlay(drawn["mismatch"], drawn["extent"], drawn["segments_a"], drawn["segments_b"],
+                                 axis_names=drawn["axis_names"], title="t = 1")
     ax = fig.axes[0]
     labels = [line.get_label() for line in ax.get_lines()]
     assert labels == ["A", "B"]
-    # the circle of A (centre 0.45, r 0.25) reaches x = 0.2 on the plotted (mid) plane
+    # the circle of A (centre 0.45, r 0.25) reaches x = 0.2 on the plotted (mid) plane (analytic)
     xa = ax.get_lines()[0].get_xdata()
     assert np.nanmin(xa) == pytest.approx(0.2, abs=0.02)
+    # the discs differ where exactly one holds a point: |x - 0.45|, |x - 0.55| against 0.25 (analytic)
+    x = grid.axes[0]
+    inside = lambda centre: np.abs(x - centre) < 0.25  # noqa: E731  the line y = 0.5 (and z = 0.5)
+    row = drawn["mismatch"][:, int(np.argmin(np.abs(grid.axes[1] - 0.5)))]
+    far = np.min(np.abs(x[:, None] - [0.2, 0.3, 0.7, 0.8]), axis=1) > 0.03  # off the circles' edges
+    expected = inside(0.45) ^ inside(0.55)
+    assert expected[far].sum() >= 2 and np.array_equal(row[far], expected[far])
     fig.savefig(tmp_path / "overlay.png")
+
+
+def test_overlay_slice_checks():
+    grid = SamplingGrid([(0, 1)] * 3, (4, 4, 4))
+    values = np.zeros(grid.shape)
+    with pytest.raises(OptionError, match="slice_normal must be 0, 1 or 2"):
+        overlay_arrays(values, values, grid, slice_normal=3)
+    with pytest.raises(OptionError, match="lies outside the grid"):
+        overlay_arrays(values, values, grid, slice_position=2.0)
+    assert overlay_arrays(values, values, grid, slice_normal=0)["axis_names"] == ("y", "z")
 
 
 def test_metric_and_shape_plots(tmp_path):

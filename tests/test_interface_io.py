@@ -12,6 +12,7 @@ from phasegauge.meshgen import grid_mesh
 from phasegauge.analysis.interface import find_interface
 from phasegauge.io._contour_writer import read_contour, write_contour
 from phasegauge.report._plots_interface import plot_interface_snapshots, plot_interface_width
+from phasegauge.run._report_data import interface_snapshots
 
 
 def test_every_public_name_imports():
@@ -95,9 +96,11 @@ def test_snapshot_plot(tmp_path, dim):
     contours = {}
     for step in range(8):
         mesh, contours[step] = _contour(dim, None, shift=0.01 * step)
-    fig = plot_interface_snapshots(mesh, contours, times={0: 0.0}, max_panels=4)
+    drawn = interface_snapshots(mesh, contours, times={0: 0.0})
+    fig = plot_interface_snapshots(drawn["steps"], bounds=drawn["bounds"], axis_names=drawn["axis_names"],
+                                   times=drawn["times"], max_panels=4)
     fig.savefig(tmp_path / "s.png")
     assert (tmp_path / "s.png").stat().st_size > 0
     assert len(fig.axes) == (1 if dim == 2 else 4)
-    with pytest.raises(OptionError, match="no contours"):
-        plot_interface_snapshots(mesh, {})
+    with pytest.raises(OptionError, match="no interfaces"):
+        plot_interface_snapshots({}, bounds=drawn["bounds"])

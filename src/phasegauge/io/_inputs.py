@@ -44,10 +44,12 @@ def input_files(series, known_sha256: dict | None = None) -> list:
         files += xdmf_data_files(series.path)
     if series.kind == "listing":
         files = [series.path] + files
-    out = []
+    out, seen = [], set()
     for f in files:
-        if not os.path.exists(f):
+        full = os.path.abspath(f)
+        if full in seen or not os.path.isfile(f):
             continue
-        out.append({"path": os.path.abspath(f), "bytes": os.path.getsize(f),
+        seen.add(full)
+        out.append({"path": full, "bytes": os.path.getsize(f),
                     "sha256": known.get(f) or file_sha256(f)})
     return out

@@ -7,24 +7,28 @@ import os
 import platform
 import time
 
-from .. import __version__
-from ._files import (RUN_MARKER, atomic_save_figure, atomic_write_csv, atomic_write_json,
-                     atomic_write_text)
+from ._files import RUN_MARKER, atomic_save_figure, atomic_write_csv, atomic_write_json, atomic_write_text
 from ._html import Page
-from ._measure_report import CAUTION, input_files
+from ._measure_report import CAUTION
 
 __all__ = ["write_compare_report", "compare_figures"]
 
 
 def compare_figures(result, *, overlays, level: float) -> list:
-    """(file stem, caption, Figure) of a comparison: overlays, metric curves, differences, shapes."""
+    """(file stem, caption, Figure) of a comparison: overlays, metric curves, differences, shapes.
+
+    ``overlays`` are the run's overlay records (``time``, ``mismatch``, ``extent``, ``segments_a``,
+    ``segments_b``, ``axis_names``; see :func:`phasegauge.run._compare_steps.overlay_arrays`).
+    """
     from . import _plots_compare as plots
 
     labels = result.labels
     figures = []
-    for k, (t, mesh_a, ca, mesh_b, cb, grid) in enumerate(overlays):
+    for k, o in enumerate(overlays):
+        t = o["time"]
         figures.append((f"overlay_{k}", f"Both interfaces at t = {t:g}",
-                        plots.plot_interface_overlay(mesh_a, ca, mesh_b, cb, level=level, grid=grid, labels=labels,
+                        plots.plot_interface_overlay(o["mismatch"], o["extent"], o["segments_a"], o["segments_b"],
+                                                     labels=labels, axis_names=o["axis_names"], level=level,
                                                      title=f"t = {t:g}")))
     comparison = result.comparison
     if comparison is not None and len(comparison) > 1:
@@ -41,15 +45,29 @@ def compare_figures(result, *, overlays, level: float) -> list:
     return figures
 
 
-def write_compare_report(out, result, *, specs, overlays, started: float, level: float) -> None:
-    """Write every output of a comparison into ``out`` (each file atomically)."""
-    import matplotlib
+def write_compare_report(out, result, *, specs, overlays, inputs: list, version: str, started: float,
+                         level: float) -> None:
+    """Write every output of a comparison into ``out`` (each file atomically).
 
-    matplotlib.use("Agg", force=False)
-    import matplotlib.pyplot as plt
-
-    from ..io import Series
-
+    Parameters
+    ----------
+    out : str or os.PathLike
+        The output folder (prepared by the run).
+    result : CompareResult
+        The comparison's tables and both runs' tables.
+    specs : pair of RunSpec
+        Path, field, range, phase and label of each run.
+    overlays : list of dict
+        What the overlay plots draw (see :func:`compare_figures`).
+    inputs : list of dict
+        Both runs' input files with ``path``, ``bytes`` and ``sha256``.
+    version : str
+        The phasegauge version that ran.
+    started : float
+        Start of the comparison (seconds since the epoch).
+    level : float
+        The interface level.
+    """
     out = os.fspath(out)
     written = []
     for name, frame in (("comparison.csv", result.comparison), ("pairs.csv", result.pairs),
@@ -64,13 +82,12 @@ def write_compare_report(out, result, *, specs, overlays, started: float, level:
     pngs = []
     for stem, caption, fig in compare_figures(result, overlays=overlays, level=level):
         png = atomic_save_figure(os.path.join(out, f"{stem}.png"), fig)
-        plt.close(fig)
         pngs.append((caption, png))
         written.append(f"{stem}.png")
     a, b = result.labels
     page = Page("phasegauge comparison report",
                 f"{a}: {os.path.abspath(specs[0].path)} ('{specs[0].field}')  ·  "
-                f"{b}: {os.path.abspath(specs[1].path)} ('{specs[1].field}')  ·  phasegauge {__version__}")
+                f"{b}: {os.path.abspath(specs[1].path)} ('{specs[1].field}')  ·  phasegauge {version}")
     page.heading("Paired steps")
     unpaired = "; ".join(f"{k}: {len(v)} unpaired" for k, v in result.unpaired.items())
     page.paragraph(f"{len(result.pairs)} paired times; {unpaired}.")
@@ -91,16 +108,11 @@ def write_compare_report(out, result, *, specs, overlays, started: float, level:
     page.paragraph(CAUTION, "note")
     atomic_write_text(os.path.join(out, "report.html"), page.render())
     written.append("report.html")
-    inputs = []
-    for spec in specs:
-        s = Series(spec.path)
-        inputs += input_files(s)
-        s.close()
     manifest = {
-        "tool": "phasegauge", "version": __version__, "command": "compare",
+        "tool": "phasegauge", "version": version, "command": "compare",
         "created": time.strftime("%Y-%m-%dT%H:%M:%S%z"),
         "runs": [dataclasses.asdict(s) for s in specs],
-        "inputs": inputs, "level": level, "outputs": written,
+        "inputs": list(inputs), "level": level, "outputs": written,
         "timings": {"total_seconds": round(time.time() - started, 3)},
         "machine": {"python": platform.python_version(), "platform": platform.platform()},
     }

@@ -9,7 +9,6 @@ from __future__ import annotations
 
 import contextlib
 import contextvars
-import hashlib
 import io
 import json
 import os
@@ -19,7 +18,7 @@ import tempfile
 from ..errors import OutputError
 
 __all__ = ["atomic_write_bytes", "atomic_write_text", "atomic_write_csv", "atomic_write_json",
-           "atomic_save_figure", "prepare_output_folder", "output_transaction", "sha256_of", "RUN_MARKER",
+           "atomic_save_figure", "prepare_output_folder", "output_transaction", "RUN_MARKER",
            "PREVIOUS_RUN", "TEMP_PREFIX"]
 
 #: file inside an output folder that says a phasegauge run owns it
@@ -96,18 +95,6 @@ def atomic_save_figure(path, figure, *, dpi: int = 110) -> bytes:
     data = buffer.getvalue()
     atomic_write_bytes(path, data)
     return data
-
-
-def sha256_of(path, chunk: int = 1 << 22) -> str:
-    """SHA-256 of a file's content."""
-    h = hashlib.sha256()
-    with open(path, "rb") as handle:
-        while True:
-            block = handle.read(chunk)
-            if not block:
-                break
-            h.update(block)
-    return h.hexdigest()
 
 
 def prepare_output_folder(out, *, overwrite: bool = False, resume: bool = False, run_key: str = "") -> str:

@@ -8,61 +8,53 @@ import time
 
 import numpy as np
 
-from .. import __version__
-from ._files import (RUN_MARKER, atomic_save_figure, atomic_write_csv, atomic_write_json,
-                     atomic_write_text, sha256_of)
+from ._files import RUN_MARKER, atomic_save_figure, atomic_write_csv, atomic_write_json, atomic_write_text
 from ._html import Page
 
-__all__ = ["write_measure_report", "measure_figures", "input_files"]
+__all__ = ["write_measure_report", "measure_figures"]
 
 CAUTION = ("These figures describe the simulation, not the physical process. Design decisions rest on "
            "validated models, experiments and licensed engineering judgement under local codes.")
 
 
-def input_files(series, results=None) -> list:
-    """Every input file of the series with its size and SHA-256 (reusing hashes workers computed)."""
-    known = {}
-    for r in results or []:
-        if getattr(r, "file_sha256", ""):
-            known[r.path] = r.file_sha256
-    files = list(series.files)
-    if series.kind == "collection":
-        files += _xdmf_data_files(series.path)
-    if series.kind == "listing":
-        files = [series.path] + files
-    out = []
-    for f in files:
-        if not os.path.exists(f):
-            continue
-        out.append({"path": os.path.abspath(f), "bytes": os.path.getsize(f),
-                    "sha256": known.get(f) or sha256_of(f)})
-    return out
-
-
-def _xdmf_data_files(path: str) -> list:
-    import re
-
-    folder = os.path.dirname(os.path.abspath(path))
-    with open(path, encoding="utf-8", errors="replace") as handle:
-        text = handle.read()
-    names = sorted(set(re.findall(r">\s*([^<>:\s]+\.(?:h5|hdf5|hdf))\s*:", text)))
-    return [n if os.path.isabs(n) else os.path.join(folder, n) for n in names]
-
-
-def measure_figures(result) -> list:
+def measure_figures(result, snapshots: dict | None = None) -> list:
     """The report's plots as (file stem, caption, Figure); empty plots are left out."""
-    import matplotlib
-
-    matplotlib.use("Agg", force=False)
     from . import _plots
 
-    return _plots.measure_figures(result)
+    return _plots.measure_figures(result, snapshots)
 
 
-def write_measure_report(out, result, *, series, started: float, execution: dict) -> None:
-    """Write every output of a measure run into ``out`` (each file atomically)."""
-    import matplotlib.pyplot as plt
+def write_measure_report(out, result, *, series: dict, inputs: list, snapshots: dict | None,
+                         step_warnings: list, step_timings: dict, version: str, started: float,
+                         execution: dict) -> None:
+    """Write every output of a measure run into ``out`` (each file atomically).
 
+    Parameters
+    ----------
+    out : str or os.PathLike
+        The output folder (prepared by the run).
+    result : MeasureResult
+        The run's tables, options, findings and skipped steps.
+    series : dict
+        ``path``, ``kind``, ``steps``, ``time_origin`` of the series.
+    inputs : list of dict
+        The input files with ``path``, ``bytes`` and ``sha256``.
+    snapshots : dict or None
+        Interface arrays of chosen steps (``steps``, ``times``, ``bounds``, ``axis_names``).
+    step_warnings : list of str
+        Each step's warnings, once.
+    step_timings : dict
+        ``step_seconds_sum`` and ``steps_reused``.
+    version : str
+        The phasegauge version that ran.
+    started : float
+        Start of the run (seconds since the epoch).
+    execution : dict
+        Workers, scheduler and resume of the run.
+
+    The run builds every argument (:func:`phasegauge.run._report_data.measure_report_data`): this
+    function reads no input and computes no metric.
+    """
     out = os.fspath(out)
     t0 = time.time()
     written = []
@@ -83,35 +75,31 @@ def write_measure_report(out, result, *, series, started: float, execution: dict
         atomic_write_json(os.path.join(out, "diffusion_audit.json"), result.audit)
         written.append("diffusion_audit.json")
     pngs = []
-    for stem, caption, fig in measure_figures(result):
+    for stem, caption, fig in measure_figures(result, snapshots):
         name = f"{stem}.png"
         png = atomic_save_figure(os.path.join(out, name), fig)
-        plt.close(fig)
         pngs.append((caption, png))
         written.append(name)
-    page = _page(result, series, pngs, execution)
+    page = _page(result, series, pngs, execution, version)
     atomic_write_text(os.path.join(out, "report.html"), page.render())
     written.append("report.html")
     contours = sorted(os.listdir(os.path.join(out, "contours"))) if os.path.isdir(
         os.path.join(out, "contours")) else []
     manifest = {
         "tool": "phasegauge",
-        "version": __version__,
+        "version": version,
         "command": "measure",
         "created": time.strftime("%Y-%m-%dT%H:%M:%S%z"),
-        "series": {"path": os.path.abspath(series.path), "kind": series.kind, "steps": len(series),
-                   "time_origin": "+".join(series.time_origins)},
-        "inputs": input_files(series, result.results),
+        "series": dict(series),
+        "inputs": list(inputs),
         "options": _options_dict(result.options),
         "execution": execution,
         "skipped_steps": result.skipped,
-        "warnings": sorted({m for r in result.results for m in r.messages}),
+        "warnings": list(step_warnings),
         "flags": result.flags,
         "outputs": written + [f"contours/{c}" for c in contours],
         "timings": {"total_seconds": round(time.time() - started, 3),
-                    "report_seconds": round(time.time() - t0, 3),
-                    "step_seconds_sum": round(sum(r.seconds for r in result.results if not r.reused), 3),
-                    "steps_reused": sum(1 for r in result.results if r.reused)},
+                    "report_seconds": round(time.time() - t0, 3), **step_timings},
         "machine": {"python": platform.python_version(), "platform": platform.platform()},
     }
     atomic_write_json(os.path.join(out, "manifest.json"), manifest)
@@ -166,12 +154,12 @@ def _key_figures(result) -> list:
     return pairs
 
 
-def _page(result, series, pngs, execution) -> Page:
+def _page(result, series, pngs, execution, version) -> Page:
     opts = result.options
     page = Page("phasegauge measure report",
-                f"{os.path.abspath(series.path)} · {len(series)} steps · field '{opts.field}' mapped from "
+                f"{series['path']} · {series['steps']} steps · field '{opts.field}' mapped from "
                 f"[{opts.value_range[0]:g}, {opts.value_range[1]:g}] ({opts.phase} phase) · "
-                f"phasegauge {__version__}")
+                f"phasegauge {version}")
     page.heading("Findings")
     if result.flags:
         page.items(result.flags, css="flag")
@@ -187,8 +175,8 @@ def _page(result, series, pngs, execution) -> Page:
         page.heading("Droplet events")
         page.table(result.events)
     page.heading("What was run")
-    page.key_values([("series", os.path.abspath(series.path)), ("series kind", series.kind),
-                     ("time from", "+".join(series.time_origins)), ("analyses", ", ".join(opts.analyses)),
+    page.key_values([("series", series["path"]), ("series kind", series["kind"]),
+                     ("time from", series["time_origin"]), ("analyses", ", ".join(opts.analyses)),
                      ("interface level", opts.level), ("velocity field", opts.velocity or "none"),
                      ("droplet adjacency", opts.connectivity),
                      ("periodic axes", ", ".join(opts.periodic) or "none"),

@@ -16,8 +16,12 @@ def _has(frame, column) -> bool:
         np.asarray(frame[column], dtype=float)).any()
 
 
-def measure_figures(result) -> list:
-    """(file stem, caption, matplotlib Figure) for every plot that has data."""
+def measure_figures(result, snapshots: dict | None = None) -> list:
+    """(file stem, caption, matplotlib Figure) for every plot that has data.
+
+    ``result`` is the run's tables (a MeasureResult); ``snapshots`` the interface arrays of chosen
+    steps (:func:`phasegauge.run._report_data.interface_snapshots`), or None.
+    """
     from . import _plots_droplets, _plots_interface, _plots_mixing
 
     steps = result.steps
@@ -28,12 +32,11 @@ def measure_figures(result) -> list:
     if _has(steps, "interface_width") and len(steps) > 1:
         figures.append(("interface_width", "Interface width (5-95 %) in length units and in cells",
                         _plots_interface.plot_interface_width(steps)))
-    snapshots = {r.index: r.contour for r in result.results
-                 if getattr(r, "contour", None) is not None and r.contour.n_elements}
-    if snapshots and result.mesh is not None:
-        times = {r.index: r.time for r in result.results}
+    if snapshots:
         figures.append(("interface_snapshots", "Interface (c = level) at chosen steps",
-                        _plots_interface.plot_interface_snapshots(result.mesh, snapshots, times=times)))
+                        _plots_interface.plot_interface_snapshots(
+                            snapshots["steps"], bounds=snapshots["bounds"], axis_names=snapshots["axis_names"],
+                            times=snapshots["times"])))
     if "droplet_count" in steps and len(steps) > 1:
         figures.append(("droplet_count", "Droplet count over time with breakup and coalescence events",
                         _plots_droplets.plot_droplet_count(steps, result.events)))

@@ -8,10 +8,10 @@ from __future__ import annotations
 
 import numpy as np
 import pandas as pd
-from matplotlib.backends.backend_agg import FigureCanvasAgg
 from matplotlib.figure import Figure
 
 from ..errors import OptionError
+from ._canvas import new_figure
 
 __all__ = ["plot_droplet_count", "plot_size_distribution"]
 
@@ -22,12 +22,6 @@ _EVENT_STYLE = {
     "appearance": ("tab:green", "o"),
     "disappearance": ("tab:gray", "x"),
 }
-
-
-def _new_figure(size=(7.0, 4.0)) -> tuple[Figure, object]:
-    fig = Figure(figsize=size, layout="constrained")
-    FigureCanvasAgg(fig)
-    return fig, fig.add_subplot()
 
 
 def _counts(table: pd.DataFrame) -> pd.DataFrame:
@@ -59,7 +53,8 @@ def plot_droplet_count(table: pd.DataFrame, events: pd.DataFrame | None = None) 
     matplotlib.figure.Figure
     """
     counts = _counts(table)
-    fig, ax = _new_figure()
+    fig = new_figure(7.0, 4.0)
+    ax = fig.add_subplot()
     ax.step(counts["time"], counts["count"], where="post", color="black", lw=1.2, label="droplets")
     if events is not None and len(events):
         at = np.interp(events["time"].to_numpy(float), counts["time"].to_numpy(float),
@@ -95,7 +90,8 @@ def plot_size_distribution(droplets: pd.DataFrame, *, column: str = "equivalent_
     if column not in droplets or "time" not in droplets:
         raise OptionError(f"the droplets table needs columns 'time' and '{column}'",
                           fix="pass droplets.csv as a DataFrame")
-    fig, ax = _new_figure()
+    fig = new_figure(7.0, 4.0)
+    ax = fig.add_subplot()
     size = droplets[column].to_numpy(float)
     time = droplets["time"].to_numpy(float)
     ok = np.isfinite(size) & (size > 0)

@@ -9,17 +9,9 @@ from __future__ import annotations
 import numpy as np
 
 from ..errors import OptionError
+from ._canvas import new_figure
 
 __all__ = ["plot_interface_width", "plot_interface_snapshots"]
-
-
-def _figure(width: float, height: float):
-    from matplotlib.backends.backend_agg import FigureCanvasAgg
-    from matplotlib.figure import Figure
-
-    fig = Figure(figsize=(width, height), layout="constrained")
-    FigureCanvasAgg(fig)
-    return fig
 
 
 def plot_interface_width(steps_df, *, time_column: str = "time", title: str | None = None):
@@ -52,7 +44,7 @@ def plot_interface_width(steps_df, *, time_column: str = "time", title: str | No
     column = time_column if time_column in steps_df.columns else (
         "step" if "step" in steps_df.columns else None)
     t = steps_df[column].to_numpy(dtype=float) if column else np.arange(len(steps_df), dtype=float)
-    fig = _figure(7.0, 5.0)
+    fig = new_figure(7.0, 5.0)
     top, bottom = fig.subplots(2, 1, sharex=True)
     labels = {"interface_width": "band 5-95 %", "width_threshold_free": "threshold-free",
               "width_second_moment": "second moment", "width_profile_median": "profile fit, median",
@@ -79,16 +71,21 @@ def plot_interface_width(steps_df, *, time_column: str = "time", title: str | No
     return fig
 
 
-def plot_interface_snapshots(mesh, contours_by_step, *, times=None, max_panels: int = 6,
-                             max_triangles: int = 20000, title: str | None = None):
-    """Contours of several steps: overlaid in 2D, one 3D panel per step in 3D.
+def plot_interface_snapshots(interfaces_by_step, *, bounds, axis_names=("x", "y", "z"), times=None,
+                             max_panels: int = 6, max_triangles: int = 20000, title: str | None = None):
+    """Interfaces of several steps: overlaid in 2D, one 3D panel per step in 3D.
 
     Parameters
     ----------
-    mesh : Mesh
-        The mesh (its bounds frame the plot).
-    contours_by_step : dict of int to Contour
-        Contours keyed by step.
+    interfaces_by_step : dict of int to (points, elements)
+        Per step the interface's points, shape (m, 2) in the mesh plane or
+        (m, 3), and its elements, shape (k, 2) segments or (k, 3) triangles
+        as indices into the points (see
+        :func:`phasegauge.run._report_data.interface_snapshots`).
+    bounds : array_like of shape (2, 2) or (2, 3)
+        Lower and upper corner of the drawn region, in the points' axes.
+    axis_names : sequence of str
+        Names of the drawn axes.
     times : dict of int to float, optional
         Time of each step, for the labels.
     max_panels : int
@@ -104,16 +101,16 @@ def plot_interface_snapshots(mesh, contours_by_step, *, times=None, max_panels: 
     Raises
     ------
     OptionError
-        No contours, or ``max_panels`` < 1.
+        No interfaces, or ``max_panels`` < 1.
     """
     from matplotlib import colormaps
     from matplotlib.collections import LineCollection
 
-    if not contours_by_step:
-        raise OptionError("no contours to plot", fix="pass a dict of step -> Contour")
+    if not interfaces_by_step:
+        raise OptionError("no interfaces to plot", fix="pass a dict of step -> (points, elements)")
     if int(max_panels) < 1:
         raise OptionError(f"max_panels must be at least 1, found {max_panels}", fix="for example 6")
-    steps = sorted(contours_by_step)
+    steps = sorted(interfaces_by_step)
     if len(steps) > max_panels:
         pick = np.unique(np.round(np.linspace(0, len(steps) - 1, int(max_panels))).astype(int))
         steps = [steps[i] for i in pick]
@@ -122,34 +119,33 @@ def plot_interface_snapshots(mesh, contours_by_step, *, times=None, max_panels: 
     def label(step):
         return f"step {step}" + (f", t = {times[step]:.4g}" if step in times else "")
 
-    lo, hi = mesh.bounds
-    if mesh.dimension == 2:
-        a, b = mesh.plane_axes
-        fig = _figure(6.5, 6.0)
+    lo, hi = np.asarray(bounds, dtype=float)
+    if lo.size == 2:
+        fig = new_figure(6.5, 6.0)
         ax = fig.subplots()
         colours = [colormaps["viridis"](x) for x in np.linspace(0, 1, len(steps))]
         for colour, step in zip(colours, steps):
-            contour = contours_by_step[step]
-            segs = contour.points[contour.elements][:, :, [a, b]] if contour.n_elements else np.zeros((0, 2, 2))
-            ax.add_collection(LineCollection(segs, colors=[colour], linewidths=1.2, label=label(step)))
-        ax.set_xlim(lo[a], hi[a])
-        ax.set_ylim(lo[b], hi[b])
+            points, elements = interfaces_by_step[step]
+            ax.add_collection(LineCollection(np.asarray(points)[np.asarray(elements)], colors=[colour],
+                                             linewidths=1.2, label=label(step)))
+        ax.set_xlim(lo[0], hi[0])
+        ax.set_ylim(lo[1], hi[1])
         ax.set_aspect("equal")
-        ax.set_xlabel("xyz"[a])
-        ax.set_ylabel("xyz"[b])
+        ax.set_xlabel(axis_names[0])
+        ax.set_ylabel(axis_names[1])
         ax.legend(fontsize="small", loc="upper right")
     else:
         from mpl_toolkits.mplot3d.art3d import Poly3DCollection
 
         cols = min(3, len(steps))
         rows = int(np.ceil(len(steps) / cols))
-        fig = _figure(4.0 * cols, 3.8 * rows)
+        fig = new_figure(4.0 * cols, 3.8 * rows)
         for i, step in enumerate(steps):
             ax = fig.add_subplot(rows, cols, i + 1, projection="3d")
-            contour = contours_by_step[step]
-            if contour.n_elements:
-                stride = max(1, int(np.ceil(contour.n_elements / max_triangles)))
-                tris = contour.points[contour.elements[::stride]]
+            points, elements = interfaces_by_step[step]
+            if len(elements):
+                stride = max(1, int(np.ceil(len(elements) / max_triangles)))
+                tris = np.asarray(points)[np.asarray(elements)[::stride]]
                 ax.add_collection3d(Poly3DCollection(tris, facecolor="C0", edgecolor="none", alpha=0.8))
             ax.set_xlim(lo[0], hi[0])
             ax.set_ylim(lo[1], hi[1])

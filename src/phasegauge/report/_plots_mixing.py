@@ -8,18 +8,12 @@ from __future__ import annotations
 
 import numpy as np
 import pandas as pd
-from matplotlib.backends.backend_agg import FigureCanvasAgg
 from matplotlib.figure import Figure
 
 from ..errors import OptionError
+from ._canvas import new_figure
 
 __all__ = ["plot_mixing_profile", "plot_phase_volume_drift", "plot_mixing_index"]
-
-
-def _figure(width: float = 6.4, height: float = 4.0):
-    figure = Figure(figsize=(width, height), layout="constrained")
-    FigureCanvasAgg(figure)
-    return figure, figure.add_subplot()
 
 
 def _require(table: pd.DataFrame, columns, what: str) -> None:
@@ -52,7 +46,8 @@ def plot_mixing_profile(profiles: dict, *, weighting: str = "flow", target: floa
     if weighting not in ("flow", "area"):
         raise OptionError(f"weighting must be 'flow' or 'area', found {weighting!r}",
                           fix="'flow' weighs by u.n, 'area' by the section area")
-    figure, ax = _figure()
+    figure = new_figure()
+    ax = figure.add_subplot()
     for label, table in profiles.items():
         _require(table, ["position", "mixing_index"], "profile")
         column, suffix = "mixing_index", ""
@@ -94,7 +89,8 @@ def plot_phase_volume_drift(steps_df: pd.DataFrame) -> Figure:
     matplotlib.figure.Figure
     """
     _require(steps_df, ["phase_volume_drift"], "steps")
-    figure, ax = _figure()
+    figure = new_figure()
+    ax = figure.add_subplot()
     t, label = _time_axis(steps_df)
     ax.plot(t, steps_df["phase_volume_drift"], marker="o", markersize=3, label="(V - V0) / V0")
     if "phase_volume_drift_closed" in steps_df:
@@ -122,7 +118,8 @@ def plot_mixing_index(steps_df: pd.DataFrame) -> Figure:
     matplotlib.figure.Figure
     """
     _require(steps_df, ["mixing_index"], "steps")
-    figure, ax = _figure()
+    figure = new_figure()
+    ax = figure.add_subplot()
     t, label = _time_axis(steps_df)
     ax.plot(t, steps_df["mixing_index"], marker="o", markersize=3, label="mixing index 1 - sqrt(I)")
     if "mixed_volume_fraction" in steps_df:

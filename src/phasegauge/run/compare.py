@@ -5,16 +5,22 @@ order parameter and a [0, 1] volume fraction meet as the same indicator), steps
 are paired by time, every per-step metric is set side by side, the shapes are
 compared on one regular grid at paired times, and a run can be checked against
 the rising-bubble benchmark (Hysing et al. 2009) or a reference table.
+
+Every step is read once, by its measure run's workers, which also sample the
+indicator of each step that will be paired on the common grid
+(:mod:`._compare_steps`); the report is handed tables, records and the overlay
+arrays it draws.
 """
 
 from __future__ import annotations
 
 import time
+import warnings
 from dataclasses import dataclass
 
 import numpy as np
 
-from ..errors import OptionError
+from ..errors import OptionError, PhasegaugeWarning
 
 __all__ = ["RunSpec", "CompareResult", "compare_runs", "compare_arguments"]
 
@@ -70,6 +76,17 @@ def compare_runs(first: RunSpec, second: RunSpec, *, out=None, overwrite: bool =
         Check the first run against the rising-bubble benchmark, case 1.
     workers : int
         Local worker processes for measuring each run.
+
+    Notes
+    -----
+    Each step is read once, by the worker that measures it; a step that will
+    be paired (predicted from the series' times) also has its indicator
+    sampled there on the common grid, and the sampled arrays (8 bytes per
+    grid sample, at most 2,000,000 samples per step by default) are kept
+    until both runs are measured. The common grid is built before measuring,
+    from the meshes of the first predicted pair (one extra mesh read per
+    run). A pair the prediction missed, or whose meshes are not the ones the
+    grid was built for, is read again; the tables are the same either way.
     """
     from ..report._files import output_transaction
 
@@ -86,7 +103,7 @@ def _compare_runs(first, second, *, out, overwrite, level, time_tolerance, spaci
     from ..analysis import compare as cmp
     from ..analysis import references
     from ..io import Series, read_reference_table
-    from ..model.indicator import make_indicator
+    from ._compare_steps import paired_shapes, plan_sampling
     from .measure import MeasureOptions, measure
 
     if not 0 < level < 1:
@@ -97,40 +114,36 @@ def _compare_runs(first, second, *, out, overwrite, level, time_tolerance, spaci
 
         prepare_output_folder(out, overwrite=overwrite, run_key="")
     labels = (first.label or "first", second.label or "second")
+
+    def open_both():
+        with warnings.catch_warnings():  # each measure run reports its series' warnings
+            warnings.simplefilter("ignore", PhasegaugeWarning)
+            return Series(first.path), Series(second.path)
+
+    plan = plan_sampling(*open_both(), spacing=spacing, time_tolerance=time_tolerance)  # (closes them)
     runs = []
-    for spec in (first, second):
+    for k, spec in enumerate((first, second)):
         options = MeasureOptions(field=spec.field, value_range=spec.value_range, phase=spec.phase, level=level,
                                  velocity=spec.velocity)
-        runs.append(measure(spec.path, options=options, workers=workers, progress=progress, snapshots=0))
+        res = measure(spec.path, options=plan.options(options, k), workers=workers, progress=progress, snapshots=0)
+        res.options = options
+        runs.append(res)
     res_a, res_b = runs
-    times_a = pd.Series(res_a.steps["time"].to_numpy(), index=res_a.steps["step"].to_numpy())
-    times_b = pd.Series(res_b.steps["time"].to_numpy(), index=res_b.steps["step"].to_numpy())
-    pairs, unpaired_a, unpaired_b = cmp.pair_times(times_a, times_b, tolerance=time_tolerance)
-    metrics = cmp.compare_metrics(res_a.steps, res_b.steps, pairs=pairs)
-    shapes = []
-    series_a, series_b = Series(first.path), Series(second.path)
-    overlays = []
-    n_pairs = len(pairs)
-    keep = set(np.linspace(0, n_pairs - 1, min(snapshots, n_pairs)).round().astype(int)) if n_pairs else set()
-    grids = {}
-    for k, row in enumerate(pairs.itertuples(index=False)):
-        sa = series_a.read(int(row.step_a))
-        sb = series_b.read(int(row.step_b))
-        ca = make_indicator(sa.mesh, sa.fields, first.field, value_range=first.value_range, phase=first.phase,
-                            where=sa.info.where, warn=False)
-        cb = make_indicator(sb.mesh, sb.fields, second.field, value_range=second.value_range,
-                            phase=second.phase, where=sb.info.where, warn=False)
-        key = (sa.mesh.signature, sb.mesh.signature)
-        if key not in grids:  # one sampling grid while both meshes stay the same
-            grids = {key: cmp.common_grid(sa.mesh, sb.mesh, spacing=spacing)}
-        grid = grids[key]
-        shape = cmp.shape_comparison(sa.mesh, ca.point, sb.mesh, cb.point, level=level, grid=grid)
-        shapes.append({"step_a": int(row.step_a), "step_b": int(row.step_b),
-                       **{name: value for name, value in shape.items() if np.isscalar(value)}})
-        if k in keep:
-            overlays.append((float(row.time_a), sa.mesh, ca.point, sb.mesh, cb.point, grid))
-    series_a.close()
-    series_b.close()
+    series = open_both()  # for pairs read again and the list of input files
+    try:
+        times_a = pd.Series(res_a.steps["time"].to_numpy(), index=res_a.steps["step"].to_numpy())
+        times_b = pd.Series(res_b.steps["time"].to_numpy(), index=res_b.steps["step"].to_numpy())
+        pairs, unpaired_a, unpaired_b = cmp.pair_times(times_a, times_b, tolerance=time_tolerance)
+        metrics = cmp.compare_metrics(res_a.steps, res_b.steps, pairs=pairs)
+        n_pairs = len(pairs)
+        keep = set(np.linspace(0, n_pairs - 1, min(snapshots, n_pairs)).round().astype(int)) if n_pairs else set()
+        shapes, overlays = paired_shapes(pairs, res_a.results, res_b.results, plan, series=series,
+                                         specs=(first, second), level=level, spacing=spacing, overlay_pairs=keep)
+    finally:
+        for s in series:
+            s.close()
+    for r in res_a.results + res_b.results:
+        r.extra = None  # the sampled fields are used up
     if shapes:
         shape_df = pd.DataFrame(shapes)
         comparison = metrics.merge(shape_df, on=["step_a", "step_b"], how="left")
@@ -154,10 +167,13 @@ def _compare_runs(first, second, *, out, overwrite, level, time_tolerance, spaci
                            droplet_statistics=drop_stats, reference_checks=reference_checks,
                            first=res_a, second=res_b, labels=labels)
     if out is not None:
+        from .. import __version__
         from ..report._compare_report import write_compare_report
+        from ._report_data import series_input_files
 
-        write_compare_report(out, result, specs=(first, second), overlays=overlays, started=started,
-                             level=level)
+        inputs = [f for s, res in zip(series, runs) for f in series_input_files(s, res.results)]
+        write_compare_report(out, result, specs=(first, second), overlays=overlays, inputs=inputs,
+                             version=__version__, started=started, level=level)
     return result
 
 

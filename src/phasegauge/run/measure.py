@@ -201,8 +201,9 @@ def _measure(series, options, out, txn, *, workers, scheduler, overwrite, resume
     result = assemble(series, results, options, notes=notes, feed=feed, mesh_pool=runner.mesh_pool)
     if out is not None:
         from ..report import write_measure_report
+        from ._report_data import measure_report_data
 
-        write_measure_report(out, result, series=series, started=started,
+        write_measure_report(out, result, **measure_report_data(series, result), started=started,
                              execution={"workers": workers, "scheduler": scheduler, "resume": resume})
     return result
 

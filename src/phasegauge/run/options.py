@@ -150,6 +150,10 @@ class MeasureOptions:
         text = json.dumps(dataclasses.asdict(self), sort_keys=True, default=str)
         return hashlib.sha256(text.encode()).hexdigest()[:16]
 
+    def step_extra(self, step, indicator):
+        """Extra per-step work for a subclass (kept in ``StepResult.extra``); None here."""
+        return None
+
 
 def check_workers(workers) -> int:
     """The number of local worker processes, checked (at least 1)."""

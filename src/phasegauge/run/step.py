@@ -59,6 +59,7 @@ class StepResult:
     warning_records: list = field(default_factory=list)  # (category, what, where) of the step's warnings
     dimension: int = 0
     outline: MeshOutline | None = None
+    extra: object = None  # what options.step_extra returned (e.g. c sampled for a comparison)
 
     def labels(self, n_cells: int) -> tuple[np.ndarray, np.ndarray]:
         """Droplet label of every cell (-1: none) and the c dV weights of the labelled cells."""
@@ -144,6 +145,7 @@ def analyse_step(step, options, *, contour_dir: str | None = None, reported_mesh
     result = StepResult(step.index, step.time, step.info.path, mesh_signature=mesh.signature,
                         dimension=int(mesh.dimension),
                         outline=MeshOutline.of(mesh, centroids="droplets" in options.analyses))
+    result.extra = options.step_extra(step, ind)
     m = {"step": step.index, "time": step.time}
     if "conservation" in options.analyses:
         m.update(conservation.conservation_metrics(mesh, ind, densities=options.densities))

@@ -1,0 +1,84 @@
+"""What a run hands its report besides the tables: plain records and arrays, nothing to read or compute.
+
+The report layer draws and writes what it is given. Everything that needs the
+input files (their hashes, the HDF5 files an XDMF names), the series or the
+model objects (meshes, contours) is turned into plain records and arrays here.
+"""
+
+from __future__ import annotations
+
+import numpy as np
+
+__all__ = ["series_record", "series_input_files", "interface_snapshots", "measure_report_data"]
+
+_AXIS_NAMES = "xyz"
+
+
+def series_record(series) -> dict:
+    """Path, kind, number of steps and time origin of a series, as the manifest and page show them."""
+    import os
+
+    return {"path": os.path.abspath(series.path), "kind": series.kind, "steps": len(series),
+            "time_origin": "+".join(series.time_origins)}
+
+
+def series_input_files(series, results=()) -> list:
+    """Every input file of a series with its size and SHA-256, reusing the hashes its workers computed.
+
+    A listing's own file comes first, then the step files (each XDMF file followed by the HDF5 files
+    it names).
+    """
+    from ..io import input_files
+
+    known = {r.path: r.file_sha256 for r in results if getattr(r, "file_sha256", "")}
+    return input_files(series, known)
+
+
+def interface_snapshots(mesh, contours: dict, times: dict | None = None) -> dict | None:
+    """The interfaces of chosen steps as arrays to draw (None when there is nothing to draw).
+
+    Parameters
+    ----------
+    mesh : Mesh
+        The mesh whose bounds frame the drawing.
+    contours : dict of int to Contour
+        Contours keyed by step; empty ones are left out.
+    times : dict of int to float, optional
+
+    Returns
+    -------
+    dict or None
+        ``steps``: step -> (points of shape (m, 2) in the mesh plane or (m, 3),
+        elements of shape (k, 2) segments or (k, 3) triangles, indices into the
+        points); ``times``; ``bounds``: array (2, d) of the lower and upper
+        corner over the drawn axes; ``axis_names``.
+    """
+    drawn = {step: c for step, c in contours.items() if c is not None and c.n_elements}
+    if not drawn or mesh is None:
+        return None
+    axes = list(mesh.plane_axes) if mesh.dimension == 2 else [0, 1, 2]
+    steps = {step: (np.asarray(c.points)[:, axes], np.asarray(c.elements)) for step, c in sorted(drawn.items())}
+    return {"steps": steps, "times": dict(times or {}), "bounds": np.asarray(mesh.bounds)[:, axes],
+            "axis_names": tuple(_AXIS_NAMES[a] for a in axes)}
+
+
+def measure_report_data(series, result) -> dict:
+    """Keyword arguments of :func:`phasegauge.report.write_measure_report` besides the tables.
+
+    ``series`` (a record), ``inputs`` (files with size and SHA-256), ``snapshots`` (interface arrays
+    of the steps whose contours were kept), ``step_warnings`` (each step's warnings once),
+    ``step_timings`` and ``version``.
+    """
+    from .. import __version__
+
+    results = list(result.results)
+    contours = {r.index: getattr(r, "contour", None) for r in results}
+    return {
+        "series": series_record(series),
+        "inputs": series_input_files(series, results),
+        "snapshots": interface_snapshots(result.mesh, contours, {r.index: r.time for r in results}),
+        "step_warnings": sorted({m for r in results for m in r.messages}),
+        "step_timings": {"step_seconds_sum": round(sum(r.seconds for r in results if not r.reused), 3),
+                         "steps_reused": sum(1 for r in results if r.reused)},
+        "version": __version__,
+    }
