@@ -24,8 +24,8 @@ import numpy as np
 import pandas as pd
 
 from ..errors import OptionError
-from ..model.indicator import Indicator
 from ..model.corners import corner_sum
+from ..model.fields import field_location
 from ..model.mesh import Mesh
 from ._section_planes import _sections
 from ._sums import dot
@@ -55,35 +55,6 @@ def normalize_axis(mesh: Mesh, axis) -> tuple[int, int]:
         raise OptionError(f"axis '{'xyz'[key]}' is normal to the plane of this 2D mesh",
                           fix=f"choose {names}")
     return key, mesh.plane_axes.index(key)
-
-
-def field_location(mesh: Mesh, values, name: str, location: str | None = None) -> tuple[np.ndarray, str]:
-    """A field and where it lives: told by ``location``, by an Indicator, or by its length."""
-    if isinstance(values, Indicator):
-        if values.location == "point":
-            return np.asarray(values.point, dtype=np.float64), "point"
-        return np.asarray(values.cell, dtype=np.float64), "cell"
-    array = np.asarray(values, dtype=np.float64)
-    n = array.shape[0] if array.ndim else -1
-    sizes = {"point": mesh.n_points, "cell": mesh.n_cells}
-    if location is not None:
-        if location not in sizes:
-            raise OptionError(f"{name} location must be 'point' or 'cell', found {location!r}",
-                              fix="say where the field lives")
-        if n != sizes[location]:
-            raise OptionError(f"{name} on {location}s must have {sizes[location]} values, found shape "
-                              f"{array.shape}", fix="pass the field of the same step as the mesh")
-        return array, location
-    if n == mesh.n_points and n == mesh.n_cells:
-        raise OptionError(f"{name} has {n} values and the mesh has as many points as cells",
-                          fix=f"say where it lives ({name}_location='point' or 'cell'), or pass an Indicator")
-    if n == mesh.n_points:
-        return array, "point"
-    if n == mesh.n_cells:
-        return array, "cell"
-    raise OptionError(f"{name} must have one value per point ({mesh.n_points}) or per cell "
-                      f"({mesh.n_cells}), found shape {array.shape}",
-                      fix="pass the field of the same step as the mesh")
 
 
 def normal_velocity(mesh: Mesh, velocity, global_axis: int,
