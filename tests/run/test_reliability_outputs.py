@@ -20,17 +20,12 @@ from phasegauge.report import _files
 
 FAST = ["--analyses", "conservation,droplets", "--no-contours", "-q"]
 
-try:  # the compare analysis is built apart; the compare command is checked where it exists
-    from phasegauge.analysis import compare as _compare  # noqa: F401
-
-    COMPARE_WORKS = True
-except ImportError:
-    COMPARE_WORKS = False
+COMPARE_WORKS = True
 
 
 def _series(folder, steps=4, n=16):
     """Two discs drifting together on a fixed mesh (cell data), times in a listing."""
-    from test_pipeline import _moving_disc_series
+    from test_measure_run import _moving_disc_series
 
     os.makedirs(folder, exist_ok=True)
     return _moving_disc_series(folder, steps=steps, n=n)

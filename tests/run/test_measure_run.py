@@ -19,7 +19,7 @@ from phasegauge.meshgen import grid_mesh, to_meshio
 from phasegauge.run.measure import MeasureOptions
 from phasegauge.recipes import load_recipe
 
-ROOT = os.path.dirname(os.path.dirname(os.path.abspath(__file__)))
+ROOT = os.path.dirname(os.path.dirname(os.path.dirname(os.path.abspath(__file__))))
 SAMPLES = os.path.join(ROOT, "sample_fields")
 
 
