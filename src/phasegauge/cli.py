@@ -97,7 +97,9 @@ def inspect(path, as_json, scan):
 
     desc = describe_series(path, scan=scan)
     if as_json:
-        click.echo(json.dumps(desc, indent=2))
+        from .report._files import strict_json
+
+        click.echo(json.dumps(strict_json(desc), indent=2, allow_nan=False, default=str))
     else:
         click.echo(format_description(desc))
 

@@ -146,6 +146,7 @@ def load_recipe(path) -> dict:
         for key in keys:
             if key not in data.get(table, {}):
                 raise OptionError(f"[{table}] needs '{key}'", where=path, fix=f"add {key} = ... under [{table}]")
+    _check_values(data, kind, path)
     base = os.path.dirname(os.path.abspath(path))
     for table in ("input", "first", "second"):
         if table in data and "path" in data[table]:
@@ -156,6 +157,75 @@ def load_recipe(path) -> dict:
     data["kind"] = kind
     data["base"] = base
     return data
+
+
+#: recipe entry -> the measure option it sets (values are checked one entry at a time)
+_MEASURE_OPTION = {("input", "field"): "field", ("input", "range"): "value_range", ("input", "phase"): "phase",
+                   ("input", "velocity"): "velocity", ("interface", "level"): "level",
+                   ("interface", "diffusivity"): "diffusivity", ("droplets", "adjacency"): "connectivity",
+                   ("droplets", "periodic"): "periodic",
+                   ("droplets", "ignore_remerge_within"): "ignore_remerge_within", ("mixing", "box"): "box",
+                   ("mixing", "section_axis"): "section_axis", ("mixing", "section_count"): "section_count",
+                   ("mixing", "section_positions"): "section_positions", ("mixing", "target"): "mixing_target",
+                   ("conservation", "densities"): "densities",
+                   ("conservation", "drift_tolerance"): "drift_tolerance", ("run", "analyses"): "analyses"}
+
+
+def _check_values(data: dict, kind: str, path: str) -> None:
+    """Check every value of a recipe before any work, naming the entry as the recipe writes it.
+
+    Each entry goes through the same checks as the Python API (:class:`MeasureOptions`),
+    one entry at a time, so the message names ``[table] key`` and the value found.
+    """
+    from .model.indicator import normalize_phase, parse_range
+    from .run.options import MeasureOptions, check_workers
+
+    def refuse(table, key, err):
+        what = err.what
+        head, sep, tail = what.partition(" must ")
+        text = f"[{table}] {key} must {tail}" if sep and len(head.split()) <= 3 else f"[{table}] {key}: {what}"
+        return OptionError(text, where=path, fix=err.fix)
+
+    if kind == "measure":
+        for (table, key), option in _MEASURE_OPTION.items():
+            if key not in data.get(table, {}):
+                continue
+            value = data[table][key]
+            if option == "box":
+                value = tuple(tuple(pair) if isinstance(pair, list) else pair for pair in value)
+            try:
+                MeasureOptions(**{"field": "c", option: value})
+            except OptionError as err:
+                raise refuse(table, key, err) from None
+            except (TypeError, ValueError) as err:
+                raise OptionError(f"[{table}] {key} has a value of the wrong form ({value!r}: {err})",
+                                  where=path, fix="see the recipe format in the README") from None
+    for table in ("input", "first", "second"):
+        entries = data.get(table, {})
+        try:
+            if "range" in entries:
+                parse_range(tuple(entries["range"]))
+            if "phase" in entries:
+                normalize_phase(entries["phase"])
+        except OptionError as err:
+            raise refuse(table, "range" if "range" in err.what else "phase", err) from None
+    run = data.get("run", {})
+    try:
+        if "workers" in run:
+            check_workers(run["workers"])
+    except OptionError as err:
+        raise refuse("run", "workers", err) from None
+    if run.get("snapshots", 0) < 0:
+        raise OptionError(f"[run] snapshots must be 0 or more, found {run['snapshots']}", where=path,
+                          fix="4 snapshots is the default")
+    compare = data.get("compare", {})
+    for key in ("time_tolerance", "spacing"):
+        if key in compare and not compare[key] > 0:
+            raise OptionError(f"[compare] {key} must be positive, found {compare[key]}", where=path,
+                              fix="leave it out for the default")
+    if "level" in compare and not 0 < compare["level"] < 1:
+        raise OptionError(f"[compare] level must lie strictly between 0 and 1, found {compare['level']}",
+                          where=path, fix="the interface is usually at level 0.5")
 
 
 def _type_word(name: str) -> str:

@@ -256,6 +256,9 @@ def test_upwind_numerical_diffusion(kind):
     assert audit["D_num_stderr"] < 0.02 * expected
     assert audit["D_ratio"] == pytest.approx(audit["D_num"] / 1e-3)
     assert audit["widening"] and audit["r_squared"] > 0.99
+    # a physical diffusivity of zero (pure advection) is accepted: the numerical value stands alone
+    alone = diffusion_audit(times, variances, physical_diffusivity=0.0)
+    assert alone["D_num"] == audit["D_num"] and np.isnan(alone["D_ratio"])
 
 
 def test_audit_on_an_exact_line():
@@ -298,7 +301,7 @@ def test_audit_with_too_few_steps_or_nan():
     (([0, 1], [1, 2, 3]), {}, "differ in length"),
     (([[0, 1]], [[1, 2]]), {}, "one-dimensional"),
     (([0, 1, 2], [1, 2, 3]), {"min_steps": 2}, "min_steps must be"),
-    (([0, 1, 2], [1, 2, 3]), {"physical_diffusivity": -1}, "physical_diffusivity must be"),
+    (([0, 1, 2], [1, 2, 3]), {"physical_diffusivity": -1}, "physical diffusivity must be"),
     (([0, 1, 2], [1, 2, 3]), {"confidence": 1.5}, "confidence must lie"),
 ])
 def test_audit_errors(args, kwargs, match):

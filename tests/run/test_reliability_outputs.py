@@ -265,3 +265,31 @@ def test_samples_never_overwrite_without_the_flag(tmp_path):
     code, err = _cli(["samples", tmp_path, "--only", "channel_mixing"])
     assert code == 2 and "channel_mixing" in err[0]
     assert (tmp_path / "channel_mixing.xdmf").read_text() == "mine"
+
+
+def test_outputs_follow_the_umask_and_json_is_strict(tmp_path):
+    """Every output file gets mode 0666 less the umask like any new file (POSIX open(2)), and every
+    JSON file parses under RFC 8259, which has no NaN or Infinity (a strict parser refuses them)."""
+    series = _series(tmp_path / "in", steps=3)
+    old = os.umask(0o022)
+    try:
+        code, err = _cli(["measure", series, "-f", "alpha", "-o", tmp_path / "o", "--quiet",
+                          "--diffusivity", "0"])
+    finally:
+        os.umask(old)
+    assert code == 0, err
+
+    def refuse(token):
+        raise ValueError(f"not strict JSON: {token}")
+
+    checked = 0
+    for base, _, files in os.walk(tmp_path / "o"):
+        for name in files:
+            path = os.path.join(base, name)
+            if ".cache" in path:
+                continue
+            assert os.stat(path).st_mode & 0o777 == 0o644, path
+            if name.endswith(".json"):
+                json.loads(open(path).read(), parse_constant=refuse)
+                checked += 1
+    assert checked >= 2

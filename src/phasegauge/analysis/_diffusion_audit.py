@@ -73,7 +73,7 @@ def diffusion_audit(times, variances, *, physical_diffusivity: float | None = No
     dict
         ``D_num`` : float, length^2 / time; half the fitted slope.
         ``D_num_stderr`` : float; its standard error.
-        ``D_ratio`` : float; ``D_num / physical_diffusivity`` (NaN without one).
+        ``D_ratio`` : float; ``D_num / physical_diffusivity`` (NaN without one, or when it is 0).
         ``widening`` : bool; slope significantly > 0 (one-sided at
         ``confidence``) and width grown by more than ``growth_threshold``.
         ``r_squared`` : float; weighted coefficient of determination.
@@ -85,7 +85,7 @@ def diffusion_audit(times, variances, *, physical_diffusivity: float | None = No
     ------
     OptionError
         Sequences of different lengths or not 1-D; ``min_steps`` < 3; a
-        physical diffusivity that is not positive; a threshold or confidence
+        negative physical diffusivity; a threshold or confidence
         out of range.
 
     Notes
@@ -127,9 +127,9 @@ def diffusion_audit(times, variances, *, physical_diffusivity: float | None = No
             physical = float(physical_diffusivity)
         except (TypeError, ValueError):
             physical = float("nan")
-        if not (np.isfinite(physical) and physical > 0):
-            raise OptionError(f"physical_diffusivity must be a positive number, found "
-                              f"{physical_diffusivity!r}", fix="give it in length^2 / time, or None")
+        if not (np.isfinite(physical) and physical >= 0):
+            raise OptionError(f"the physical diffusivity must be zero or a positive number, found "
+                              f"{physical_diffusivity!r}", fix="give it in length^2 / time")
     if not (0 <= float(growth_threshold) < np.inf):
         raise OptionError(f"growth_threshold must be >= 0, found {growth_threshold!r}",
                           fix="for example 0.05 (5 %)")
@@ -172,7 +172,7 @@ def diffusion_audit(times, variances, *, physical_diffusivity: float | None = No
     return {
         "D_num": D,
         "D_num_stderr": 0.5 * stderr,
-        "D_ratio": D / physical if physical_diffusivity is not None else float("nan"),
+        "D_ratio": D / physical if physical_diffusivity is not None and physical > 0 else float("nan"),
         "widening": widening,
         "r_squared": r_squared,
         "variance_0": float(intercept),

@@ -11,7 +11,7 @@ half a file.
 from __future__ import annotations
 
 import os
-import tempfile
+import secrets
 from pathlib import Path
 from types import MappingProxyType
 
@@ -97,8 +97,8 @@ def write_contour(contour, path) -> Path:
         cell_data={"cell": [np.asarray(contour.cells, dtype=np.int64)],
                    "size": [np.asarray(contour.element_sizes, dtype=np.float64)]},
     )
-    handle, tmp = tempfile.mkstemp(prefix=f".{path.stem}.", suffix=path.suffix, dir=folder)
-    os.close(handle)
+    # meshio creates the file, so it gets mode 0666 less the umask like any new file
+    tmp = str(folder / f".{path.stem}.{secrets.token_hex(6)}{path.suffix}")
     try:
         if len(elements) == 0:
             # meshio cannot read back a mesh with no points: write the empty grid by hand

@@ -12,8 +12,8 @@ import contextvars
 import io
 import json
 import os
+import secrets
 import shutil
-import tempfile
 
 from ..errors import OutputError
 
@@ -40,7 +40,9 @@ def atomic_write_bytes(path, data: bytes) -> None:
     try:
         os.makedirs(folder, exist_ok=True)
         # the temporary name ends in '.part', so a listing of '*.pkl' or '*.vtu' never takes it for output
-        fd, tmp = tempfile.mkstemp(prefix=TEMP_PREFIX, suffix=os.path.basename(path) + ".part", dir=folder)
+        # created with mode 0666 less the umask, as any new file (mkstemp would give 0600)
+        tmp = os.path.join(folder, f"{TEMP_PREFIX}{secrets.token_hex(6)}{os.path.basename(path)}.part")
+        fd = os.open(tmp, os.O_WRONLY | os.O_CREAT | os.O_EXCL, 0o666)
     except OSError as exc:
         raise OutputError(f"cannot write here ({exc.strerror or exc})", where=path,
                           fix="choose an output folder you can write to") from None
@@ -66,7 +68,25 @@ def atomic_write_text(path, text: str) -> None:
 
 
 def atomic_write_json(path, obj) -> None:
-    atomic_write_text(path, json.dumps(obj, indent=2, default=_json_default) + "\n")
+    """Write strict JSON: NaN and infinities become ``null`` (RFC 8259 has no NaN)."""
+    atomic_write_text(path, json.dumps(strict_json(obj), indent=2, default=_json_default, allow_nan=False) + "\n")
+
+
+def strict_json(obj):
+    """``obj`` with every non-finite float (numpy ones too) replaced by None, for strict JSON."""
+    import numpy as np
+
+    if isinstance(obj, dict):
+        return {key: strict_json(value) for key, value in obj.items()}
+    if isinstance(obj, (list, tuple, set)):
+        return [strict_json(value) for value in obj]
+    if isinstance(obj, np.ndarray):
+        return [strict_json(value) for value in obj.tolist()]
+    if isinstance(obj, (float, np.floating)):
+        return float(obj) if np.isfinite(obj) else None
+    if isinstance(obj, np.generic):
+        return obj.item()
+    return obj
 
 
 def _json_default(obj):

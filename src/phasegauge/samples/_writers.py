@@ -16,6 +16,7 @@ from __future__ import annotations
 import hashlib
 import os
 import shutil
+import secrets
 import tempfile
 
 import numpy as np
@@ -108,8 +109,7 @@ def write_vtu_with_time(path: str, mesh, time: float, *, point_data=None, cell_d
     from ..meshgen import to_meshio
 
     directory = os.path.dirname(os.path.abspath(path))
-    handle, temp = tempfile.mkstemp(prefix=".writing-", suffix=".vtu", dir=directory)
-    os.close(handle)
+    temp = os.path.join(directory, f".writing-{secrets.token_hex(6)}.vtu")  # new file: umask applies
     try:
         meshio.vtu.write(temp, to_meshio(mesh, point_data, cell_data), binary=True,
                          compression="zlib")
