@@ -22,6 +22,7 @@ class _Group(click.Group):
 
     def invoke(self, ctx):
         debug = bool(ctx.params.get("debug"))
+        previous = _stop_on_sigterm()
         try:
             return super().invoke(ctx)
         except PhasegaugeError as err:
@@ -42,6 +43,31 @@ class _Group(click.Group):
             click.echo(f"phasegauge: internal error: {type(exc).__name__}: {text}; rerun with --debug "
                        "for the traceback and report it", err=True)
             ctx.exit(1)
+        finally:
+            _restore_sigterm(previous)
+
+
+def _interrupt(signum, frame):
+    raise KeyboardInterrupt(f"signal {signum}")
+
+
+def _stop_on_sigterm():
+    """SIGTERM (what ``timeout``, batch schedulers and service managers send) stops a run as Ctrl-C
+    does: workers are ended, finished steps stay cached, and the exit status and ``--resume`` hint
+    are those of an interrupt."""
+    import signal
+    import threading
+
+    if threading.current_thread() is threading.main_thread():
+        return signal.signal(signal.SIGTERM, _interrupt)
+    return None
+
+
+def _restore_sigterm(previous) -> None:
+    import signal
+
+    if previous is not None:
+        signal.signal(signal.SIGTERM, previous)
 
 
 class _WarningPrinter:

@@ -1,6 +1,7 @@
 """Forked workers: a failure in a fork ends the run with the step named; a fork that dies is reported."""
 
 import os
+import sys
 
 import numpy as np
 import pytest
@@ -65,3 +66,64 @@ def test_more_workers_than_steps_give_the_serial_tables(tmp_path):
     parallel = measure(listing, "alpha", analyses=("droplets", "conservation"), workers=6)
     pd.testing.assert_frame_equal(serial.steps, parallel.steps, check_exact=True)
     pd.testing.assert_frame_equal(serial.droplets, parallel.droplets, check_exact=True)
+
+
+def _processes_naming(text: str) -> list:
+    """Pids of live processes whose command line holds ``text`` (Linux /proc)."""
+    found = []
+    for entry in os.listdir("/proc"):
+        if not entry.isdigit():
+            continue
+        try:
+            with open(f"/proc/{entry}/cmdline", "rb") as handle:
+                line = handle.read().replace(b"\0", b" ").decode(errors="replace")
+            with open(f"/proc/{entry}/stat") as handle:
+                state = handle.read().rsplit(")", 1)[1].split()[0]
+        except OSError:
+            continue
+        if text in line and state != "Z":
+            found.append(int(entry))
+    return found
+
+
+@pytest.mark.skipif(not sys.platform.startswith("linux"), reason="reads /proc")
+@pytest.mark.parametrize("signal_name", ["SIGTERM", "SIGKILL"])
+def test_a_killed_two_worker_run_leaves_no_process(tmp_path, signal_name):
+    """SIGTERM or SIGKILL to `measure --workers 2` mid-run (what `timeout` and batch schedulers send)
+    leaves no forked worker alive; SIGTERM stops the run as an interrupt does (exit 130, resume hint).
+    Checked by the kernel's own process table (/proc), not by our bookkeeping."""
+    import signal
+    import subprocess
+    import time
+
+    from conftest import subprocess_env
+
+    mesh = grid_mesh((120, 120), kind="triangle")
+    x, y = mesh.cell_centroids[:, 0], mesh.cell_centroids[:, 1]
+    series = tmp_path / "in"
+    series.mkdir()
+    for k in range(50):
+        c = 0.5 * (1 + np.tanh((0.2 - np.hypot(x - 0.3 - 0.005 * k, y - 0.5)) / 0.02))
+        to_meshio(mesh, cell_data={"c": c}).write(str(series / f"blob_{k}.vtu"))
+    out = tmp_path / f"out_{signal_name}"
+    proc = subprocess.Popen([sys.executable, "-m", "phasegauge", "measure", str(series), "-f", "c", "-o", str(out),
+                             "--workers", "2", "--quiet"], env=subprocess_env(), stdout=subprocess.PIPE,
+                            stderr=subprocess.PIPE)
+    deadline = time.monotonic() + 60
+    while time.monotonic() < deadline:  # until the run has finished a few steps (and so has forked)
+        cached = list((out / ".cache").glob("step_*.pkl")) if (out / ".cache").exists() else []
+        if len(cached) >= 3 or proc.poll() is not None:
+            break
+        time.sleep(0.1)
+    assert proc.poll() is None, "the run ended before it could be killed; make the series longer"
+    assert len(_processes_naming(str(out))) >= 2  # this process and its forked worker
+    proc.send_signal(getattr(signal, signal_name))
+    _, err = proc.communicate(timeout=30)
+    deadline = time.monotonic() + 10
+    while _processes_naming(str(out)) and time.monotonic() < deadline:
+        time.sleep(0.1)
+    assert _processes_naming(str(out)) == []
+    if signal_name == "SIGTERM":
+        assert proc.returncode == 130
+        assert "interrupted; rerun with --resume to finish" in err.decode()
+        assert "Traceback" not in err.decode()

@@ -19,6 +19,7 @@ when needed.
 from __future__ import annotations
 
 import os
+import sys
 import time
 import traceback
 from collections import deque
@@ -99,8 +100,44 @@ class _Fork:
         self.closed = False
 
 
-def _serve(runner, conn) -> None:
+def _die_with_parent(parent: int) -> None:
+    """Make this forked worker end when the process that forked it ends, however it ends.
+
+    On Linux the kernel sends SIGKILL on the parent's death (``prctl(PR_SET_PDEATHSIG)``),
+    even while the worker is inside a long numpy call; elsewhere, and as a second guard, a
+    watchdog thread checks every half second that the parent is still the one that forked
+    it. A SIGKILL or SIGTERM to the parent then leaves no worker behind holding memory or
+    the caller's pipes. SIGTERM here takes its default action again (the parent's handler,
+    which turns it into an interrupt, is inherited by the fork).
+    """
+    import signal
+    import threading
+
+    signal.signal(signal.SIGTERM, signal.SIG_DFL)
+    if sys.platform.startswith("linux"):
+        try:
+            import ctypes
+
+            libc = ctypes.CDLL(None, use_errno=True)
+            libc.prctl(1, signal.SIGKILL, 0, 0, 0)  # PR_SET_PDEATHSIG = 1
+        except (OSError, AttributeError):  # pragma: no cover - no prctl: the watchdog alone
+            pass
+    if os.getppid() != parent:  # the parent ended before the guard was set
+        os._exit(1)
+
+    def watch():
+        while True:
+            time.sleep(0.5)
+            if os.getppid() != parent:
+                os._exit(1)
+
+    threading.Thread(target=watch, name="parent-watchdog", daemon=True).start()
+
+
+def _serve(runner, conn, parent: int | None = None) -> None:
     """A forked worker: run the steps this process is sent, one at a time, until told to stop."""
+    if parent is not None:
+        _die_with_parent(parent)
     kept = {}  # signature -> outline with centroids, until told to send or drop it
     try:
         while True:
@@ -184,7 +221,7 @@ def _run_local(runner, indices, workers, record, feed) -> list:
     try:
         for _ in range(workers - 1):
             parent_end, child_end = ctx.Pipe()
-            process = ctx.Process(target=_serve, args=(runner, child_end), daemon=True)
+            process = ctx.Process(target=_serve, args=(runner, child_end, os.getpid()), daemon=True)
             process.start()
             child_end.close()
             forks.append(_Fork(process, parent_end))
