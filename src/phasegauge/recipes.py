@@ -171,6 +171,12 @@ _MEASURE_OPTION = {("input", "field"): "field", ("input", "range"): "value_range
                    ("conservation", "drift_tolerance"): "drift_tolerance", ("run", "analyses"): "analyses"}
 
 
+#: how an entry is written, for a value of the wrong form
+_FORM = {"box": "write box = [[xmin, xmax], [ymin, ymax]] (and [zmin, zmax] in 3D)",
+         "range": "write range = [low, high]", "densities": "write densities = [phase, other phase]",
+         "section_positions": "write section_positions = [x1, x2, ...]", "periodic": 'write periodic = ["x", "y"]'}
+
+
 def _check_values(data: dict, kind: str, path: str) -> None:
     """Check every value of a recipe before any work, naming the entry as the recipe writes it.
 
@@ -186,20 +192,27 @@ def _check_values(data: dict, kind: str, path: str) -> None:
         text = f"[{table}] {key} must {tail}" if sep and len(head.split()) <= 3 else f"[{table}] {key}: {what}"
         return OptionError(text, where=path, fix=err.fix)
 
+    mixing = data.get("mixing", {})
+    if "section_positions" in mixing and "section_axis" not in mixing:
+        raise OptionError("[mixing] section_positions are given without section_axis, so no section would be cut",
+                          where=path, fix='add section_axis = "x" (the axis the planes are normal to)')
     if kind == "measure":
         for (table, key), option in _MEASURE_OPTION.items():
             if key not in data.get(table, {}):
                 continue
             value = data[table][key]
-            if option == "box":
-                value = tuple(tuple(pair) if isinstance(pair, list) else pair for pair in value)
+            given = {option: value}
+            if option == "section_positions" and "section_axis" in mixing:
+                given["section_axis"] = mixing["section_axis"]
             try:
-                MeasureOptions(**{"field": "c", option: value})
+                if option == "box":
+                    given["box"] = tuple(tuple(pair) if isinstance(pair, list) else pair for pair in value)
+                MeasureOptions(**{"field": "c", **given})
             except OptionError as err:
                 raise refuse(table, key, err) from None
             except (TypeError, ValueError) as err:
                 raise OptionError(f"[{table}] {key} has a value of the wrong form ({value!r}: {err})",
-                                  where=path, fix="see the recipe format in the README") from None
+                                  where=path, fix=_FORM.get(key, "see the recipe format in the README")) from None
     for table in ("input", "first", "second"):
         entries = data.get(table, {})
         try:

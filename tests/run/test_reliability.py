@@ -589,3 +589,48 @@ def test_subprocess_error_and_warning_lines(tmp_path):
     lines = proc.stderr.splitlines()
     assert proc.returncode == 0 and len(lines) == 1 and lines[0].startswith("phasegauge: warning: s_1.vtu, step 1")
     assert "Traceback" not in proc.stderr
+
+
+# ------------------------------------------------------------------ regions and options that cannot be right
+REGION_CASES = {
+    # name: (extra arguments, words the one line must hold); the mesh is the unit square
+    "box outside the mesh": (["--box", "5,6,5,6"], ["s_0.vtu, step 0", "the box lies outside the mesh along x"]),
+    "sections outside the mesh": (["--sections", "x", "--section-at", "5,6"],
+                                  ["s_0.vtu, step 0", "section positions 5, 6 lie outside the mesh"]),
+    "positions without an axis": (["--section-at", "0.5"], ["without a section axis"]),
+    "negative snapshots": (["--snapshots", "-1"], ["snapshots must be a whole number of 0 or more"]),
+}
+
+
+@pytest.mark.parametrize("name", sorted(REGION_CASES))
+def test_regions_and_options_that_cannot_be_right_are_refused(tmp_path, name):
+    """A region outside the mesh gave blank columns with exit 0; now one line and exit 2, nothing written."""
+    extra, needles = REGION_CASES[name]
+    folder = _folder(tmp_path, "in", count=2)
+    _assert_one_error_line(["measure", folder, "-f", "alpha", "-o", tmp_path / "o", *extra], *needles)
+    assert not (tmp_path / "o").exists()
+
+
+def test_output_folder_that_mixes_with_the_input_is_refused_before_any_write(tmp_path):
+    """An output inside a folder series would be read as steps next time; an input inside the output
+    would be removed by --overwrite. Both are refused before anything is written."""
+    folder = _folder(tmp_path, "in", count=2)
+    _assert_one_error_line(["measure", folder, "-f", "alpha", "-o", tmp_path / "in" / "o"],
+                           "the output folder is inside the input folder")
+    assert sorted(os.listdir(folder)) == ["s_0.vtu", "s_1.vtu"]
+    (tmp_path / "o").mkdir()
+    step = _good(tmp_path / "o" / "one.vtu")
+    _assert_one_error_line(["measure", step, "-f", "alpha", "-o", tmp_path / "o", "--overwrite"],
+                           "the output folder holds the input file one.vtu")
+    assert os.path.exists(step)
+
+
+def test_recipe_values_of_the_wrong_form_are_refused_with_the_recipe_key(tmp_path):
+    """A flat number where the box wants pairs ended as "'int' object is not iterable" (exit 1)."""
+    recipe = tmp_path / "r.toml"
+    recipe.write_text(f'[input]\npath = "{_good(tmp_path / "a.vtu")}"\nfield = "alpha"\n'
+                      '[mixing]\nbox = [5, 6]\n[output]\nfolder = "o"\n')
+    _assert_one_error_line(["run", recipe], "[mixing] box has a value of the wrong form", "box = [[xmin, xmax]")
+    recipe.write_text(f'[input]\npath = "{tmp_path / "a.vtu"}"\nfield = "alpha"\n'
+                      '[mixing]\nsection_positions = [0.5]\n[output]\nfolder = "o"\n')
+    _assert_one_error_line(["run", recipe], "[mixing] section_positions are given without section_axis")

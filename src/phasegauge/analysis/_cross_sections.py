@@ -24,6 +24,7 @@ import numpy as np
 import pandas as pd
 
 from ..errors import OptionError
+from ..model.axes import AXIS_NAMES
 from ..model.corners import corner_sum
 from ..model.fields import field_location
 from ..model.mesh import Mesh
@@ -230,6 +231,12 @@ def cross_sections(mesh: Mesh, c_point_or_indicator, *, axis="x", positions=None
     if positions.ndim != 1 or not np.all(np.isfinite(positions)):
         raise OptionError("positions must be a list of finite numbers",
                           fix="for example positions=[0.1, 0.2, 0.5]")
+    low, high = mesh.bounds[:, global_axis]
+    outside = positions[(positions < low) | (positions > high)]
+    if outside.size:
+        raise OptionError(f"section positions {', '.join(f'{p:g}' for p in outside)} lie outside the mesh, "
+                          f"which spans {AXIS_NAMES[global_axis]} from {low:.6g} to {high:.6g}",
+                          fix="give positions inside the mesh")
     u = None
     if velocity is not None:
         u = normal_velocity(mesh, velocity, global_axis, velocity_location)

@@ -42,6 +42,11 @@ def normalize_box(mesh: Mesh, box) -> np.ndarray:
         if not out[k, 0] < out[k, 1]:
             raise OptionError(f"box bounds along {AXIS_NAMES[axis]} must increase, found {rows[axis]}",
                               fix="give (lower, upper)")
+        low, high = mesh.bounds[:, axis]
+        if out[k, 1] <= low or out[k, 0] >= high:
+            raise OptionError(f"the box lies outside the mesh along {AXIS_NAMES[axis]}: it spans "
+                              f"{out[k, 0]:.6g} to {out[k, 1]:.6g}, the mesh {low:.6g} to {high:.6g}",
+                              fix="give a box that overlaps the mesh")
     return out
 
 

@@ -109,10 +109,6 @@ def _compare_runs(first, second, *, out, overwrite, level, time_tolerance, spaci
     if not 0 < level < 1:
         raise OptionError(f"level must lie strictly between 0 and 1, found {level}", fix="usually 0.5")
     started = time.time()
-    if out is not None:
-        from ..report._files import prepare_output_folder
-
-        prepare_output_folder(out, overwrite=overwrite, run_key="")
     labels = (first.label or "first", second.label or "second")
 
     def open_both():
@@ -120,6 +116,14 @@ def _compare_runs(first, second, *, out, overwrite, level, time_tolerance, spaci
             warnings.simplefilter("ignore", PhasegaugeWarning)
             return Series(first.path), Series(second.path)
 
+    if out is not None:
+        from ..report._files import prepare_output_folder
+        from .measure import check_output_place
+
+        for series in open_both():
+            with series:
+                check_output_place(series, out)
+        prepare_output_folder(out, overwrite=overwrite, run_key="")
     plan = plan_sampling(*open_both(), spacing=spacing, time_tolerance=time_tolerance)  # (closes them)
     runs = []
     for k, spec in enumerate((first, second)):

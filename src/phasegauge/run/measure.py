@@ -146,6 +146,7 @@ def measure(path, field: str | None = None, *, options: MeasureOptions | None = 
     elif option_values or field is not None:
         options = dataclasses.replace(options, **({"field": field} if field else {}), **option_values)
     workers = check_workers(workers)
+    check_snapshots(snapshots)
     path = os.fspath(path)
     with warnings.catch_warnings(record=True) as caught:
         warnings.simplefilter("always")
@@ -155,6 +156,7 @@ def measure(path, field: str | None = None, *, options: MeasureOptions | None = 
         problem = series.time_problem()
         if problem is not None:
             raise problem
+        check_output_place(series, out)
         from ..report._files import output_transaction
 
         with output_transaction(out) as txn:
@@ -163,6 +165,39 @@ def measure(path, field: str | None = None, *, options: MeasureOptions | None = 
                             write_contours=write_contours, snapshots=snapshots, notes=notes)
     finally:
         series.close()
+
+
+def check_snapshots(snapshots) -> int:
+    """``snapshots`` as a whole number of 0 or more, or an :class:`OptionError`."""
+    if isinstance(snapshots, bool) or not isinstance(snapshots, (int, np.integer)) or snapshots < 0:
+        raise OptionError(f"snapshots must be a whole number of 0 or more, found {snapshots!r}",
+                          fix="4 snapshots is the default; 0 draws none")
+    return int(snapshots)
+
+
+def check_output_place(series, out) -> None:
+    """Refuse an output folder that would mix with the input, before anything is written.
+
+    An output folder inside a folder series would be read as input by a later run (its
+    contour files are mesh files), and a step file inside the output folder would be
+    removed by ``overwrite``.
+    """
+    if out is None:
+        return
+    target = os.path.realpath(os.fspath(out))
+
+    def inside(path, folder):
+        return path == folder or path.startswith(folder.rstrip(os.sep) + os.sep)
+
+    if os.path.isdir(series.path) and inside(target, os.path.realpath(series.path)):
+        raise OptionError("the output folder is inside the input folder, where a later run would read its "
+                          "files as steps", where=os.fspath(out), fix="choose an output folder outside "
+                          f"{series.path}")
+    for step_file in series.files:
+        if inside(os.path.realpath(step_file), target):
+            raise OptionError(f"the output folder holds the input file {os.path.basename(step_file)}, which "
+                              "--overwrite would remove", where=os.fspath(out),
+                              fix="choose an output folder that holds no input")
 
 
 def _records(caught) -> list:

@@ -127,6 +127,9 @@ class MeasureOptions:
             raise OptionError("section count must be at least 1", fix="for example 20")
         if self.section_positions is not None:
             set_(self, "section_positions", tuple(float(p) for p in self.section_positions))
+            if self.section_axis is None:
+                raise OptionError("section positions are given without a section axis, so no section would be "
+                                  "cut", fix="name the axis the planes are normal to (--sections x)")
         if self.densities is not None:
             dens = tuple(float(d) for d in self.densities)
             if len(dens) != 2 or min(dens) < 0:

@@ -298,8 +298,8 @@ class StepRunner:
                 if self.options.strict:
                     raise err from None
                 result = StepResult(index, info.time, info.path, skipped=err.one_line(), error=err)
-            except PhasegaugeError:
-                raise
+            except PhasegaugeError as err:  # an option this step's mesh shows to be wrong: name the step
+                raise err.with_where(info.where) from None
             except Exception as exc:  # a failure inside the tool: name the step, keep the cause for --debug
                 raise AnalysisError(f"{type(exc).__name__}: {short_text(exc, 160)}", where=info.where,
                                     fix="rerun with --debug for the traceback and report it") from exc
