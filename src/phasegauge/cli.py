@@ -249,6 +249,10 @@ def _summary(result, out, quiet):
         click.echo(f"compared {len(result.pairs)} paired times; report: {os.path.join(out, 'report.html')}")
         return
     n = len(result.steps)
+    results = getattr(result, "results", [])
+    if results and all(r.reused for r in results):
+        click.echo(f"every step was finished before, nothing was computed again; the tables and report were "
+                   f"written from the {n} cached step{'s' if n != 1 else ''}")
     click.echo(f"measured {n} step{'s' if n != 1 else ''}; report: {os.path.join(out, 'report.html')}")
     for flag in result.flags:
         click.echo(f"  flag: {flag}")

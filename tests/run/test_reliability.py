@@ -634,3 +634,37 @@ def test_recipe_values_of_the_wrong_form_are_refused_with_the_recipe_key(tmp_pat
     recipe.write_text(f'[input]\npath = "{tmp_path / "a.vtu"}"\nfield = "alpha"\n'
                       '[mixing]\nsection_positions = [0.5]\n[output]\nfolder = "o"\n')
     _assert_one_error_line(["run", recipe], "[mixing] section_positions are given without section_axis")
+
+
+# ------------------------------------------------------------------ series that change under the run
+def test_a_resume_refuses_a_step_whose_file_changed_and_says_when_nothing_is_left(tmp_path):
+    """The cache keys each step by its file's SHA-256 (hashlib); another key for a cached step means
+    the file changed since the interrupted run: refused, not silently mixed."""
+    folder = _folder(tmp_path, "in", count=3)
+    out = tmp_path / "o"
+    code, err, _ = _cli(["measure", folder, "-f", "alpha", "-o", out, "--quiet"])
+    assert code == 0, err
+    code, err, stdout = _cli(["measure", folder, "-f", "alpha", "-o", out, "--resume"])
+    assert code == 0, err
+    assert "every step was finished before, nothing was computed again" in stdout
+    _good(os.path.join(folder, "s_1.vtu"), cell={"alpha": 0.5 * DISC})
+    _assert_one_error_line(["measure", folder, "-f", "alpha", "-o", out, "--resume", "--quiet"],
+                           "s_1.vtu", "changed since the run that is being resumed read it", "--overwrite")
+
+
+def test_a_file_that_changes_while_the_run_reads_it_is_refused(tmp_path, monkeypatch):
+    """A solver still writing the series: a step file rewritten during the run (size and mtime, os.stat)."""
+    import phasegauge.run.executors as executors
+
+    folder = _folder(tmp_path, "in", count=3)
+    real = executors.run_steps
+
+    def run_then_touch(*args, **kwargs):
+        results = real(*args, **kwargs)
+        _good(os.path.join(folder, "s_2.vtu"), cell={"alpha": 0.25 * DISC})
+        os.utime(os.path.join(folder, "s_2.vtu"), ns=(1, 1))
+        return results
+
+    monkeypatch.setattr(executors, "run_steps", run_then_touch)
+    _assert_one_error_line(["measure", folder, "-f", "alpha", "-o", tmp_path / "o", "--quiet"],
+                           "1 input file changed while the run read it (s_2.vtu)")

@@ -85,6 +85,24 @@ class StepCache:
         result.reused = True
         return result
 
+    def holds(self, entry: CacheEntry) -> bool:
+        """True when ``entry``'s result is cached."""
+        return os.path.exists(entry.path)
+
+    def changed_since(self, info, entry: CacheEntry) -> bool:
+        """True when step ``info.index`` was cached from other content than ``entry`` names.
+
+        The options are the run's own (a resume checks the run key first), so another
+        key for the same step means its file (or the HDF5 files it reads) changed since
+        the run that cached it.
+        """
+        prefix = f"step_{info.index:06d}_"
+        mine = os.path.basename(entry.path)
+        try:
+            return any(f.startswith(prefix) and f.endswith(".pkl") and f != mine for f in os.listdir(self.folder))
+        except OSError:
+            return False
+
     def store(self, entry: CacheEntry, result) -> None:
         """Cache a finished step's result (its outline without centroids: those are kept once per mesh)."""
         from ..report._files import atomic_write_bytes

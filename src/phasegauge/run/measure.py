@@ -25,7 +25,7 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
-from ..errors import OptionError, PhasegaugeWarning
+from ..errors import OptionError, PhasegaugeWarning, SeriesError
 from .options import ANALYSES, MeasureOptions, check_workers
 from .step import StepResult, run_step
 
@@ -230,9 +230,16 @@ def _measure(series, options, out, txn, *, workers, scheduler, overwrite, resume
     runner = StepRunner(series.path, options, cache=cache, contour_dir=contour_dir,
                         keep=snapshot_steps(n, snapshots), series=series)
     feed = TrackingFeed(options, range(n), cache=cache)
+    before = input_stamps(series)
     bar = Progress(n, "steps", enabled=progress)
     results = run_steps(runner, range(n), workers=workers, scheduler=scheduler, feed=feed, progress=bar)
     bar.close()
+    changed = [path for path, stamp in input_stamps(series).items() if before.get(path) != stamp]
+    if changed:
+        raise SeriesError(f"{len(changed)} input file{'s' if len(changed) != 1 else ''} changed while the run read "
+                          f"{'them' if len(changed) != 1 else 'it'} ({_short_list(changed)}), so the steps may "
+                          "mix old and new content", where=series.path,
+                          fix="run again once the solver has finished writing (--overwrite)")
     result = assemble(series, results, options, notes=notes, feed=feed, mesh_pool=runner.mesh_pool)
     if out is not None:
         from ..report import write_measure_report
@@ -241,6 +248,32 @@ def _measure(series, options, out, txn, *, workers, scheduler, overwrite, resume
         write_measure_report(out, result, **measure_report_data(series, result), started=started,
                              execution={"workers": workers, "scheduler": scheduler, "resume": resume})
     return result
+
+
+def input_stamps(series) -> dict:
+    """Size and modification time of every file the series reads (step files and HDF5 data files)."""
+    from ..io import xdmf_data_files
+
+    paths = list(series.files)
+    for path in series.files:
+        if path.lower().endswith((".xdmf", ".xmf")):
+            try:
+                paths.extend(xdmf_data_files(path))
+            except Exception:  # an XDMF file that cannot be parsed is reported by its step
+                pass
+    stamps = {}
+    for path in dict.fromkeys(paths):
+        try:
+            st = os.stat(path)
+            stamps[path] = (st.st_size, st.st_mtime_ns)
+        except OSError:
+            stamps[path] = None
+    return stamps
+
+
+def _short_list(paths, limit: int = 3) -> str:
+    names = [os.path.basename(p) for p in paths[:limit]]
+    return ", ".join(names) + (f" and {len(paths) - limit} more" if len(paths) > limit else "")
 
 
 def snapshot_steps(n: int, count: int = 4) -> set:

@@ -18,7 +18,7 @@ from dataclasses import dataclass, field
 import numpy as np
 
 from ..errors import (AnalysisError, FieldNotFoundError, InputError, InputFileNotFound, MeshWarning,
-                      PhasegaugeError, PhasegaugeWarning, UnsupportedMeshError, short_text)
+                      PhasegaugeError, PhasegaugeWarning, SeriesError, UnsupportedMeshError, short_text)
 from ..model.fields import vector_field
 from ..model.indicator import make_indicator
 from ..model.outline import MeshOutline
@@ -280,6 +280,9 @@ class StepRunner:
         info = series.steps[index]
         keep_contour = index in self.keep
         entry = None if self.cache is None else self.cache.entry(info)  # None: no file to key it by
+        if entry is not None and not self.cache.holds(entry) and self.cache.changed_since(info, entry):
+            raise SeriesError("the step's file changed since the run that is being resumed read it",
+                              where=info.path, fix="start the run again with --overwrite (or restore the file)")
         if entry is not None:
             cached = self.cache.load(entry)
             if cached is not None and self._complete(cached):
