@@ -9,11 +9,10 @@ from __future__ import annotations
 
 import numpy as np
 
+from ..model.axes import AXIS_NAMES
+
 __all__ = ["series_record", "series_input_files", "interface_snapshots", "measure_report_data",
            "package_version"]
-
-_AXIS_NAMES = "xyz"
-
 
 def package_version() -> str:
     """The phasegauge version that runs, from the installed package's metadata (``"unknown"`` without one).
@@ -74,7 +73,7 @@ def interface_snapshots(mesh, contours: dict, times: dict | None = None) -> dict
     axes = list(mesh.plane_axes) if mesh.dimension == 2 else [0, 1, 2]
     steps = {step: (np.asarray(c.points)[:, axes], np.asarray(c.elements)) for step, c in sorted(drawn.items())}
     return {"steps": steps, "times": dict(times or {}), "bounds": np.asarray(mesh.bounds)[:, axes],
-            "axis_names": tuple(_AXIS_NAMES[a] for a in axes)}
+            "axis_names": tuple(AXIS_NAMES[a] for a in axes)}
 
 
 def measure_report_data(series, result) -> dict:
