@@ -101,20 +101,22 @@ def _mutable(node) -> bool:
     return False
 
 
+def module_assignments(tree: ast.Module):
+    """(statement, targets, value) of every module-level assignment with a value."""
+    for node in tree.body:
+        if isinstance(node, ast.Assign):
+            yield node, node.targets, node.value
+        elif isinstance(node, ast.AnnAssign) and node.value is not None:
+            yield node, [node.target], node.value
+
+
 def test_no_module_level_mutable_state():
     """Module-level names bound to mutable containers must be constant tables (UPPER_CASE, never
     assigned again) or ``__all__``; caches live on objects (Mesh.memo, MeshPool, StepCache)."""
     found = []
     for rel, path in modules():
         tree = ast.parse(open(path).read())
-        for node in tree.body:
-            targets = []
-            if isinstance(node, ast.Assign):
-                targets, value = node.targets, node.value
-            elif isinstance(node, ast.AnnAssign) and node.value is not None:
-                targets, value = [node.target], node.value
-            else:
-                continue
+        for node, targets, value in module_assignments(tree):
             for t in targets:
                 if not isinstance(t, ast.Name) or not _mutable(value):
                     continue
@@ -135,13 +137,7 @@ def test_constant_tables_are_not_mutated():
     for rel, path in modules():
         tree = ast.parse(open(path).read())
         tables = set()
-        for node in tree.body:
-            if isinstance(node, ast.Assign):
-                targets, value = node.targets, node.value
-            elif isinstance(node, ast.AnnAssign) and node.value is not None:
-                targets, value = [node.target], node.value
-            else:
-                continue
+        for _, targets, value in module_assignments(tree):
             tables |= {t.id for t in targets
                        if isinstance(t, ast.Name) and t.id.lstrip("_").isupper() and _mutable(value)}
         for node in ast.walk(tree):
