@@ -26,3 +26,21 @@ def subprocess_env():
     env["PYTHONPATH"] = src + os.pathsep + env.get("PYTHONPATH", "")
     env["MPLBACKEND"] = "Agg"
     return env
+
+
+def write_listing(folder, steps) -> str:
+    """Write a series of VTU files and the ``run.steps`` listing that names them; return its path.
+
+    ``steps`` yields ``(time, file name, mesh, cell data)``; each step is written with
+    ``phasegauge.meshgen.to_meshio``.
+    """
+    from phasegauge.meshgen import to_meshio
+
+    lines = []
+    for time, name, mesh, cell_data in steps:
+        to_meshio(mesh, cell_data=cell_data).write(os.path.join(folder, name))
+        lines.append(f"{time},{name}")
+    listing = os.path.join(folder, "run.steps")
+    with open(listing, "w") as handle:
+        handle.write("\n".join(lines) + "\n")
+    return listing

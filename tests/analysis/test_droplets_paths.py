@@ -14,7 +14,7 @@ import pytest
 from scipy import ndimage, sparse
 from scipy.sparse import csgraph
 
-from phasegauge.analysis import _labelling
+from phasegauge.analysis import _droplet_graph
 from phasegauge.analysis.droplets import TABLE_COLUMNS, label_droplets
 from phasegauge.model.mesh import Mesh
 from phasegauge.meshgen import delaunay_mesh, grid_mesh
@@ -61,7 +61,7 @@ def shuffled(mesh, seed):
 
 
 def periodic_pairs(mesh, axes):
-    pairs = [_labelling._periodic_pairs(mesh, ax)[0] for ax in axes]
+    pairs = [_droplet_graph.periodic_pairs(mesh, ax)[0] for ax in axes]
     return np.concatenate(pairs) if pairs else np.empty((0, 2), np.int64)
 
 
@@ -118,7 +118,7 @@ def assert_same_result(a, b):
     np.testing.assert_array_equal(a.labels, b.labels)
     np.testing.assert_array_equal(a.shared_labels, b.shared_labels)
     np.testing.assert_array_equal(a.weights, b.weights)
-    assert list(a.table.columns) == list(b.table.columns) == TABLE_COLUMNS
+    assert list(a.table.columns) == list(b.table.columns) == list(TABLE_COLUMNS)
     for column in TABLE_COLUMNS:
         np.testing.assert_allclose(a.table[column].to_numpy(float), b.table[column].to_numpy(float),
                                    rtol=1e-12, atol=0, err_msg=column)
@@ -138,7 +138,7 @@ def test_neighbour_table_lists_the_face_neighbours(kind, dim, n):
     """Each row of the cached table holds exactly the cell's row of Mesh.adjacency('face')
     (from the grid's index arithmetic on regular grids, from the face pairs elsewhere)."""
     mesh = delaunay_mesh(n, dim=dim, seed=3) if kind == "delaunay" else case_mesh(kind, dim, n)
-    table = _labelling._neighbour_table(mesh)
+    table = _droplet_graph.neighbour_table(mesh)
     adjacency = mesh.adjacency("face").tocsr()
     assert table.shape[0] == mesh.n_cells
     for cell in range(mesh.n_cells):
@@ -239,8 +239,8 @@ def test_grid_pieces_are_numbered_as_ndimage_label(dim):
     near = np.flatnonzero(c > FLOOR)
     local = np.full(mesh.n_cells + 1, near.size)
     local[near] = np.arange(near.size)
-    neighbours = local[_labelling._neighbour_table(mesh)[near]]
-    count, piece = _labelling._pieces(mesh, near, c[near] > LEVEL, neighbours, "face")
+    neighbours = local[_droplet_graph.neighbour_table(mesh)[near]]
+    count, piece = _droplet_graph.pieces(mesh, near, c[near] > LEVEL, neighbours, "face")
     grid = mesh.regular_grid
     volume = np.zeros(mesh.n_cells, dtype=bool)
     volume[grid.cell_index] = c > LEVEL

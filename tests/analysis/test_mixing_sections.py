@@ -32,7 +32,7 @@ def test_linear_fields_exact(kind, shape):
     positions = [0.0, 0.37, 3 / shape[0], 1.0]
     table = cross_sections(mesh, y, positions=positions, velocity=velocity, c_location="point",
                            velocity_location="point")
-    assert list(table.columns) == PROFILE_COLUMNS
+    assert list(table.columns) == list(PROFILE_COLUMNS)
     np.testing.assert_allclose(table["area"], 1.0, rtol=1e-12)
     np.testing.assert_allclose(table["mean_area_weighted"], 0.5, rtol=1e-12)
     np.testing.assert_allclose(table["segregation_intensity"], 1 / 3, rtol=1e-10)

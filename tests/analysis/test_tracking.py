@@ -53,7 +53,7 @@ def test_halves_that_separate_break_up_with_exact_closure(kind):
         right = core & (X[:, 0] - gap > 0.5) & (X[:, 0] - gap < 0.5 + w * h)
         shapes.append(left | right)
     droplets, events = track_droplets(series(mesh, shapes))
-    assert list(events.columns) == EVENT_COLUMNS
+    assert list(events.columns) == list(EVENT_COLUMNS)
     assert events["kind"].tolist() == ["breakup"]
     event = events.iloc[0]
     assert event["step"] == 3 and event["time"] == 3.0
@@ -233,7 +233,7 @@ def test_empty_steps_and_first_step_events():
     assert events["kind"].tolist() == ["appearance", "disappearance"]
     assert events["after"].tolist() == ["0", ""] and events["before"].tolist() == ["", "0"]
     droplets, events = track_droplets([])
-    assert len(droplets) == 0 and list(events.columns) == EVENT_COLUMNS
+    assert len(droplets) == 0 and list(events.columns) == list(EVENT_COLUMNS)
 
 
 def test_errors_name_the_problem():

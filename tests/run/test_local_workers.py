@@ -10,19 +10,14 @@ from phasegauge import measure
 from phasegauge.errors import AnalysisError
 from phasegauge.meshgen import grid_mesh, to_meshio
 
+from conftest import write_listing
+
 
 def _listing(folder, steps=5):
     mesh = grid_mesh((10, 10), kind="triangle")
     x = mesh.cell_centroids[:, 0]
-    lines = []
-    for k in range(steps):
-        to_meshio(mesh, cell_data={"alpha": np.where(x < 0.2 + 0.1 * k, 1.0, 0.0)}).write(
-            os.path.join(folder, f"s_{k}.vtu"))
-        lines.append(f"{0.1 * k},s_{k}.vtu")
-    path = os.path.join(folder, "run.steps")
-    with open(path, "w") as handle:
-        handle.write("\n".join(lines) + "\n")
-    return path
+    return write_listing(folder, ((0.1 * k, f"s_{k}.vtu", mesh, {"alpha": np.where(x < 0.2 + 0.1 * k, 1.0, 0.0)})
+                                  for k in range(steps)))
 
 
 def test_a_failure_inside_a_fork_names_the_step(tmp_path, monkeypatch):

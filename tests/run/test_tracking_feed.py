@@ -5,7 +5,6 @@ the reference is :class:`DropletTracker` fed in order with each step's own Mesh 
 arrays (its public ``add``), and every way of running the steps must give its tables exactly.
 """
 
-import os
 import random
 
 import numpy as np
@@ -13,7 +12,9 @@ import pandas as pd
 import pytest
 
 from phasegauge import measure
-from phasegauge.meshgen import grid_mesh, to_meshio
+from phasegauge.meshgen import grid_mesh
+
+from conftest import write_listing
 
 # every step has a mesh of its own: the run says so once, which is not what these tests check
 pytestmark = pytest.mark.filterwarnings("ignore:.*the mesh changes between steps")
@@ -21,7 +22,7 @@ pytestmark = pytest.mark.filterwarnings("ignore:.*the mesh changes between steps
 
 def _changing_mesh_series(folder, steps=5, n=22):
     """Two discs moving together with a cell velocity field, on a different (jittered) mesh every step."""
-    lines = []
+    frames = []
     for k in range(steps):
         mesh = grid_mesh((n, n), kind="triangle", jitter=0.2, seed=k + 1)
         x, y = mesh.cell_centroids[:, 0], mesh.cell_centroids[:, 1]
@@ -32,13 +33,8 @@ def _changing_mesh_series(folder, steps=5, n=22):
             r = np.hypot(x - cx, y - 0.5)
             c = np.maximum(c, 0.5 * (1 + np.tanh((0.14 - r) / 0.02)))
             u[r < 0.25, 0] = ux
-        name = f"moving_{k}.vtu"
-        to_meshio(mesh, cell_data={"alpha": c, "U": u}).write(os.path.join(folder, name))
-        lines.append(f"{0.1 * k},{name}")
-    listing = os.path.join(folder, "run.steps")
-    with open(listing, "w") as handle:
-        handle.write("\n".join(lines) + "\n")
-    return listing
+        frames.append((0.1 * k, f"moving_{k}.vtu", mesh, {"alpha": c, "U": u}))
+    return write_listing(folder, frames)
 
 
 def _reference_tables(listing, options):
@@ -163,16 +159,13 @@ def test_an_outline_said_to_be_held_stays_until_its_step_is_linked(tmp_path):
     from phasegauge.run.options import MeasureOptions
     from phasegauge.run.step import StepRunner
 
-    lines = []
+    frames = []
     for k, seed in enumerate((1, 2, 1)):
         mesh = grid_mesh((12, 12), kind="triangle", jitter=0.2, seed=seed)
         x, y = mesh.cell_centroids[:, 0], mesh.cell_centroids[:, 1]
         c = 0.5 * (1 + np.tanh((0.2 - np.hypot(x - 0.4 - 0.05 * k, y - 0.5)) / 0.03))
-        to_meshio(mesh, cell_data={"alpha": c}).write(os.path.join(tmp_path, f"m_{k}.vtu"))
-        lines.append(f"{0.1 * k},m_{k}.vtu")
-    listing = os.path.join(tmp_path, "run.steps")
-    with open(listing, "w") as handle:
-        handle.write("\n".join(lines) + "\n")
+        frames.append((0.1 * k, f"m_{k}.vtu", mesh, {"alpha": c}))
+    listing = write_listing(str(tmp_path), frames)
     options = MeasureOptions(field="alpha", analyses=("droplets",))
     runner = StepRunner(listing, options)
     results = [runner.run(k) for k in range(3)]

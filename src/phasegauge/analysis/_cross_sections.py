@@ -24,7 +24,7 @@ import numpy as np
 import pandas as pd
 
 from ..errors import OptionError
-from ..model.axes import AXIS_NAMES
+from ..model.axes import AXIS_INDEX, AXIS_NAMES
 from ..model.corners import corner_sum
 from ..model.fields import field_location
 from ..model.mesh import Mesh
@@ -35,25 +35,22 @@ from ._sums import dot
 __all__ = ["cross_sections", "PROFILE_COLUMNS"]
 
 #: columns of the table :func:`cross_sections` returns, in order
-PROFILE_COLUMNS = ["position", "area", "mean_area_weighted", "mean_flow_weighted",
+PROFILE_COLUMNS = ("position", "area", "mean_area_weighted", "mean_flow_weighted",
                    "segregation_intensity", "segregation_intensity_flow", "mixing_index",
-                   "mixing_index_flow", "flow_rate"]
-
-_AXES = {"x": 0, "y": 1, "z": 2}
-
+                   "mixing_index_flow", "flow_rate")
 
 def normalize_axis(mesh: Mesh, axis) -> tuple[int, int]:
     """The global axis (0, 1, 2) and the analysis axis (index into ``mesh.coordinates``)."""
     key = axis.lower() if isinstance(axis, str) else axis
-    if key in _AXES:
-        key = _AXES[key]
+    if key in AXIS_INDEX:
+        key = AXIS_INDEX[key]
     if not isinstance(key, (int, np.integer)) or isinstance(key, bool) or key not in (0, 1, 2):
         raise OptionError(f"axis must be 'x', 'y' or 'z', found {axis!r}",
                           fix="name the axis the planes are normal to, for example axis='x'")
     key = int(key)
     if key not in mesh.plane_axes:
-        names = " or ".join("xyz"[a] for a in mesh.plane_axes)
-        raise OptionError(f"axis '{'xyz'[key]}' is normal to the plane of this 2D mesh",
+        names = " or ".join(AXIS_NAMES[a] for a in mesh.plane_axes)
+        raise OptionError(f"axis '{AXIS_NAMES[key]}' is normal to the plane of this 2D mesh",
                           fix=f"choose {names}")
     return key, mesh.plane_axes.index(key)
 
@@ -289,7 +286,7 @@ def cross_sections(mesh: Mesh, c_point_or_indicator, *, axis="x", positions=None
             row.update(mean_flow_weighted=mean_f, segregation_intensity_flow=intensity_f,
                        flow_rate=flow)
         rows.append(row)
-    table = pd.DataFrame(rows, columns=PROFILE_COLUMNS, dtype=np.float64)
+    table = pd.DataFrame(rows, columns=list(PROFILE_COLUMNS), dtype=np.float64)
     with np.errstate(invalid="ignore"):
         table["mixing_index"] = 1.0 - np.sqrt(table["segregation_intensity"])
         table["mixing_index_flow"] = 1.0 - np.sqrt(table["segregation_intensity_flow"])

@@ -28,6 +28,7 @@ from dataclasses import dataclass
 import numpy as np
 
 from ..errors import InputError, OptionError, ResolutionWarning
+from ..model.axes import AXIS_NAMES
 from ..model.mesh import Mesh
 from ..model.simplices import split_cells
 
@@ -142,9 +143,8 @@ def check_same_space(mesh_a: Mesh, mesh_b: Mesh) -> None:
         raise InputError(f"run A is {mesh_a.dimension}D and run B is {mesh_b.dimension}D",
                          fix="compare runs of the same dimension")
     if mesh_a.dimension == 2 and tuple(mesh_a.plane_axes) != tuple(mesh_b.plane_axes):
-        names = "xyz"
-        pa = "".join(names[i] for i in mesh_a.plane_axes)
-        pb = "".join(names[i] for i in mesh_b.plane_axes)
+        pa = "".join(AXIS_NAMES[i] for i in mesh_a.plane_axes)
+        pb = "".join(AXIS_NAMES[i] for i in mesh_b.plane_axes)
         raise InputError(f"run A lies in the {pa} plane and run B in the {pb} plane",
                          fix="write both 2D runs in the same coordinate plane")
 

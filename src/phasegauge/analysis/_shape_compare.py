@@ -17,6 +17,8 @@ grid:
 
 from __future__ import annotations
 
+from types import MappingProxyType
+
 import numpy as np
 
 from ..errors import OptionError
@@ -28,7 +30,7 @@ __all__ = ["shape_comparison", "shape_comparison_on_grid", "interface_points", "
            "interface_distances"]
 
 #: densified interface points are at most this fraction of the finest grid spacing apart (2D, 3D)
-_DENSIFY = {2: 0.125, 3: 0.25}
+_DENSIFY = MappingProxyType({2: 0.125, 3: 0.25})
 #: spacing (in grid spacings) of the target points of the first, cheap distance pass
 _COARSE = 0.5
 #: distances below this many grid spacings are refined against the finely densified target

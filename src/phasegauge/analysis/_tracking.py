@@ -39,7 +39,7 @@ from ._labelling import DropletLabels, _normalize_periodic
 __all__ = ["DropletTracker", "track_droplets", "EVENT_COLUMNS", "EVENT_KINDS"]
 
 #: columns of the events table, in order
-EVENT_COLUMNS = ["time", "step", "kind", "before", "after", "volume_before", "volume_after", "closure_error"]
+EVENT_COLUMNS = ("time", "step", "kind", "before", "after", "volume_before", "volume_after", "closure_error")
 
 #: the kinds of event
 EVENT_KINDS = ("breakup", "coalescence", "complex", "appearance", "disappearance")
@@ -356,11 +356,11 @@ class DropletTracker:
         droplets = (pd.concat(self._droplets, ignore_index=True) if self._droplets
                     else pd.DataFrame(columns=["step", "time", "track", "_order"]))
         events = (pd.concat(self._events, ignore_index=True) if self._events
-                  else pd.DataFrame(columns=EVENT_COLUMNS + ["_order"]))
+                  else pd.DataFrame(columns=[*EVENT_COLUMNS, "_order"]))
         if self.ignore_remerge_within and len(events):
             droplets, events = _drop_remerges(droplets, events, self.ignore_remerge_within)
         droplets = droplets.drop(columns="_order").reset_index(drop=True)
-        events = events[EVENT_COLUMNS].reset_index(drop=True)
+        events = events[list(EVENT_COLUMNS)].reset_index(drop=True)
         events["step"] = events["step"].astype(droplets["step"].dtype if len(droplets) else np.int64)
         return droplets, events
 

@@ -34,10 +34,10 @@ __all__ = [
 ]
 
 #: columns of the pairs table
-PAIR_COLUMNS = ["step_a", "step_b", "time_a", "time_b"]
+PAIR_COLUMNS = ("step_a", "step_b", "time_a", "time_b")
 #: shape metrics written to comparison.csv, in order
-SHAPE_COLUMNS = ["mismatch_volume", "dice", "hausdorff", "hausdorff_ab", "hausdorff_ba",
-                 "hausdorff_95", "mean_distance", "field_difference"]
+SHAPE_COLUMNS = ("mismatch_volume", "dice", "hausdorff", "hausdorff_ab", "hausdorff_ba",
+                 "hausdorff_95", "mean_distance", "field_difference")
 #: columns of a steps table that identify a row rather than measure something
 _KEY_COLUMNS = ("step", "time", "step_a", "step_b", "time_a", "time_b", "track")
 
@@ -302,8 +302,8 @@ def _rows_of(steps: np.ndarray, wanted: np.ndarray, label: str) -> np.ndarray:
 
 
 #: droplet statistics compared per paired time (suffixes _a, _b, _diff added)
-DROPLET_STATISTICS = ["droplet_count", "mean_equivalent_diameter", "median_equivalent_diameter",
-                      "total_droplet_volume"]
+DROPLET_STATISTICS = ("droplet_count", "mean_equivalent_diameter", "median_equivalent_diameter",
+                      "total_droplet_volume")
 
 
 def compare_droplet_statistics(droplets_a: pd.DataFrame, droplets_b: pd.DataFrame, pairs, *,

@@ -42,8 +42,8 @@ __all__ = ["RISING_BUBBLE_CASE1", "RISING_BUBBLE_CASE1_SOURCE", "check_rising_bu
            "check_against_table", "check_reference_table", "bubble_history", "CHECK_COLUMNS"]
 
 #: columns of every check result
-CHECK_COLUMNS = ["quantity", "value", "time", "reference", "reference_low", "reference_high",
-                 "verdict", "source"]
+CHECK_COLUMNS = ("quantity", "value", "time", "reference", "reference_low", "reference_high",
+                 "verdict", "source")
 
 RISING_BUBBLE_CASE1_SOURCE = (
     "Hysing et al. 2009, Quantitative benchmark computations of two-dimensional bubble dynamics, "
@@ -216,7 +216,7 @@ def check_against_table(run: pd.DataFrame, reference) -> pd.DataFrame:
             verdict = "pass" if low - slack <= value <= high + slack else "off"
         rows.append((quantity, value, at, float(ref["value"]), float(low), float(high), verdict,
                      ref["source"]))
-    return pd.DataFrame(rows, columns=CHECK_COLUMNS)
+    return pd.DataFrame(rows, columns=list(CHECK_COLUMNS))
 
 
 def _value_at(t: np.ndarray, v: np.ndarray, at: float) -> float:

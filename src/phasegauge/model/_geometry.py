@@ -2,6 +2,8 @@
 
 from __future__ import annotations
 
+from types import MappingProxyType
+
 import numpy as np
 
 from ..errors import UnsupportedMeshError
@@ -84,7 +86,7 @@ def _wedge_rule():
             yield N, dN, wt * 0.5 * 0.5
 
 
-_RULES = {"quad": list(_quad_rule()), "hexahedron": list(_hex_rule()), "wedge": list(_wedge_rule())}
+_RULES = MappingProxyType({"quad": list(_quad_rule()), "hexahedron": list(_hex_rule()), "wedge": list(_wedge_rule())})
 
 
 def _simplex(X: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
@@ -309,5 +311,5 @@ def _pyramid_columns(P: list):
     return _hex_columns(P[:4] + [P[4]] * 4)
 
 
-_COLUMN_GEOMETRY = {"triangle": _simplex_columns, "tetra": _simplex_columns, "quad": _quad_columns,
-                    "hexahedron": _hex_columns, "wedge": _wedge_columns, "pyramid": _pyramid_columns}
+_COLUMN_GEOMETRY = MappingProxyType({"triangle": _simplex_columns, "tetra": _simplex_columns, "quad": _quad_columns,
+                    "hexahedron": _hex_columns, "wedge": _wedge_columns, "pyramid": _pyramid_columns})

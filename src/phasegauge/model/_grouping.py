@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 import sys
+from types import MappingProxyType
 
 import numpy as np
 
@@ -74,7 +75,8 @@ def index_dtype(n: int):
 
 
 # comparators of the smallest sorting networks (Knuth, TAOCP vol. 3, 5.3.4)
-_NETWORKS = {2: ((0, 1),), 3: ((1, 2), (0, 2), (0, 1)), 4: ((0, 1), (2, 3), (0, 2), (1, 3), (1, 2))}
+_NETWORKS = MappingProxyType({2: ((0, 1),), 3: ((1, 2), (0, 2), (0, 1)),
+                              4: ((0, 1), (2, 3), (0, 2), (1, 3), (1, 2))})
 
 
 def sort_columns(columns: list) -> list:

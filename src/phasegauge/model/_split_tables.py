@@ -16,19 +16,21 @@ along: the two sides of a shared face split it alike when these are the same two
 
 from __future__ import annotations
 
+from types import MappingProxyType
+
 from .cells import FACES
 
 __all__ = ["TABLE", "TABLE_DIAGONALS", "CONED_TYPES"]
 
 #: simplices of each cell type without added points
-TABLE = {
+TABLE = MappingProxyType({
     "triangle": ((0, 1, 2),),
     "quad": ((0, 1, 2), (0, 2, 3)),
     "tetra": ((0, 1, 2, 3),),
     "hexahedron": ((0, 1, 2, 6), (0, 2, 3, 6), (0, 3, 7, 6), (0, 7, 4, 6), (0, 4, 5, 6), (0, 5, 1, 6)),
     "wedge": ((0, 1, 2, 5), (0, 1, 4, 5), (0, 3, 4, 5)),
     "pyramid": ((0, 1, 2, 4), (0, 2, 3, 4)),
-}
+})
 
 #: 3D cell types with quad faces: split by the table where every quad face allows it, else coned
 CONED_TYPES = ("hexahedron", "wedge", "pyramid")
@@ -45,4 +47,4 @@ def _table_diagonals(cell_type: str) -> dict:
 
 
 #: {cell type: {face position: (corner, corner)}} of the tables' quad-face diagonals
-TABLE_DIAGONALS = {kind: _table_diagonals(kind) for kind in CONED_TYPES}
+TABLE_DIAGONALS = MappingProxyType({kind: _table_diagonals(kind) for kind in CONED_TYPES})

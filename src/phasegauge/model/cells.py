@@ -2,10 +2,12 @@
 
 from __future__ import annotations
 
+from types import MappingProxyType
+
 __all__ = ["CELL_DIMENSION", "LINEAR_CORNERS", "FACES", "EDGES"]
 
 #: topological dimension of every cell type the model accepts
-CELL_DIMENSION = {
+CELL_DIMENSION = MappingProxyType({
     "vertex": 0,
     "line": 1,
     "triangle": 2,
@@ -15,10 +17,10 @@ CELL_DIMENSION = {
     "hexahedron": 3,
     "wedge": 3,
     "pyramid": 3,
-}
+})
 
 #: higher-order and VTK-specific types mapped to a linear type (corner nodes, reordered)
-LINEAR_CORNERS = {
+LINEAR_CORNERS = MappingProxyType({
     "line3": ("line", [0, 1]),
     "triangle6": ("triangle", [0, 1, 2]),
     "triangle7": ("triangle", [0, 1, 2]),
@@ -35,24 +37,25 @@ LINEAR_CORNERS = {
     # VTK pixel and voxel number their corners lexicographically, not around the face
     "pixel": ("quad", [0, 1, 3, 2]),
     "voxel": ("hexahedron", [0, 1, 3, 2, 4, 5, 7, 6]),
-}
+})
 
-# local faces (3D) or edges (2D) that adjacency is built from, VTK corner order
-FACES = {
-    "triangle": [(0, 1), (1, 2), (2, 0)],
-    "quad": [(0, 1), (1, 2), (2, 3), (3, 0)],
-    "tetra": [(0, 1, 2), (0, 1, 3), (1, 2, 3), (0, 2, 3)],
-    "hexahedron": [(0, 3, 2, 1), (4, 5, 6, 7), (0, 1, 5, 4), (1, 2, 6, 5), (2, 3, 7, 6), (3, 0, 4, 7)],
-    "wedge": [(0, 2, 1), (3, 4, 5), (0, 1, 4, 3), (1, 2, 5, 4), (2, 0, 3, 5)],
-    "pyramid": [(0, 3, 2, 1), (0, 1, 4), (1, 2, 4), (2, 3, 4), (3, 0, 4)],
-}
+#: local faces (3D) or edges (2D) that adjacency is built from, VTK corner order (read-only)
+FACES = MappingProxyType({
+    "triangle": ((0, 1), (1, 2), (2, 0)),
+    "quad": ((0, 1), (1, 2), (2, 3), (3, 0)),
+    "tetra": ((0, 1, 2), (0, 1, 3), (1, 2, 3), (0, 2, 3)),
+    "hexahedron": ((0, 3, 2, 1), (4, 5, 6, 7), (0, 1, 5, 4), (1, 2, 6, 5), (2, 3, 7, 6), (3, 0, 4, 7)),
+    "wedge": ((0, 2, 1), (3, 4, 5), (0, 1, 4, 3), (1, 2, 5, 4), (2, 0, 3, 5)),
+    "pyramid": ((0, 3, 2, 1), (0, 1, 4), (1, 2, 4), (2, 3, 4), (3, 0, 4)),
+})
 
-EDGES = {
-    "triangle": [(0, 1), (1, 2), (2, 0)],
-    "quad": [(0, 1), (1, 2), (2, 3), (3, 0)],
-    "tetra": [(0, 1), (1, 2), (2, 0), (0, 3), (1, 3), (2, 3)],
-    "hexahedron": [(0, 1), (1, 2), (2, 3), (3, 0), (4, 5), (5, 6), (6, 7), (7, 4),
-                   (0, 4), (1, 5), (2, 6), (3, 7)],
-    "wedge": [(0, 1), (1, 2), (2, 0), (3, 4), (4, 5), (5, 3), (0, 3), (1, 4), (2, 5)],
-    "pyramid": [(0, 1), (1, 2), (2, 3), (3, 0), (0, 4), (1, 4), (2, 4), (3, 4)],
-}
+#: local edges of every cell type, VTK corner order (read-only)
+EDGES = MappingProxyType({
+    "triangle": ((0, 1), (1, 2), (2, 0)),
+    "quad": ((0, 1), (1, 2), (2, 3), (3, 0)),
+    "tetra": ((0, 1), (1, 2), (2, 0), (0, 3), (1, 3), (2, 3)),
+    "hexahedron": ((0, 1), (1, 2), (2, 3), (3, 0), (4, 5), (5, 6), (6, 7), (7, 4),
+                   (0, 4), (1, 5), (2, 6), (3, 7)),
+    "wedge": ((0, 1), (1, 2), (2, 0), (3, 4), (4, 5), (5, 3), (0, 3), (1, 4), (2, 5)),
+    "pyramid": ((0, 1), (1, 2), (2, 3), (3, 0), (0, 4), (1, 4), (2, 4), (3, 4)),
+})

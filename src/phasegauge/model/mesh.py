@@ -24,12 +24,16 @@ from functools import cached_property
 import numpy as np
 
 from ..errors import UnsupportedMeshError
+from ._conversions import corner_sums, linear_point_values, point_stencil
+from ._faces import face_rows, face_topology, grid_face_numbers, grouped_faces, local_faces, row_owners, unique_edges
 from ._geometry import cell_geometry
-from ._grouping import (CHUNK, all_distinct, grid_face_ids, group_columns, index_dtype, sort_columns,
-                        sort_small_rows, unique_ints)
-from .cells import CELL_DIMENSION, EDGES, FACES, LINEAR_CORNERS
+from ._grouping import index_dtype
+from ._regular_grid import RegularGrid, find_regular_grid
+from .cells import CELL_DIMENSION, LINEAR_CORNERS
 
 __all__ = ["Mesh", "CellBlock", "RegularGrid"]
+
+
 @dataclass(frozen=True)
 class CellBlock:
     """Cells of one type.
@@ -50,64 +54,12 @@ class CellBlock:
         return int(self.connectivity.shape[0])
 
 
-@dataclass(frozen=True)
-class RegularGrid:
-    """Layout of a mesh that is a rectilinear grid of quads or hexahedra.
-
-    Attributes
-    ----------
-    axes : tuple of ndarray
-        Point coordinates along each grid axis (2 in 2D, 3 in 3D), increasing.
-    mesh_axes : tuple of int
-        Which of the mesh's x, y, z coordinates each grid axis is.
-    cell_index : ndarray of shape (n_cells,), int32 (int64 for more than 2**31 cells)
-        Flat C-order index of each mesh cell in the array of shape ``cell_shape``.
-    point_index : ndarray of shape (n_points,), int32 (int64 for more than 2**31 points)
-        Flat C-order index of each mesh point in the array of shape ``point_shape``.
-    uniform : bool
-        True when every axis has one spacing.
-    """
-
-    axes: tuple
-    mesh_axes: tuple
-    cell_index: np.ndarray
-    point_index: np.ndarray
-    uniform: bool
-
-    @property
-    def point_shape(self) -> tuple:
-        return tuple(len(a) for a in self.axes)
-
-    @property
-    def cell_shape(self) -> tuple:
-        return tuple(len(a) - 1 for a in self.axes)
-
-    @cached_property
-    def cell_order(self) -> np.ndarray:
-        """The mesh cell at each flat C-order position of the ``cell_shape`` array (the inverse
-        of ``cell_index``, same dtype), computed once."""
-        n = self.cell_index.size
-        order = np.empty(n, dtype=self.cell_index.dtype)
-        order[self.cell_index] = np.arange(n, dtype=self.cell_index.dtype)
-        order.flags.writeable = False
-        return order
-
-    @property
-    def spacing(self) -> tuple:
-        """Mean spacing along each axis."""
-        return tuple(float(np.mean(np.diff(a))) for a in self.axes)
-
-    def cells_to_array(self, values: np.ndarray, fill=np.nan) -> np.ndarray:
-        """Scatter per-cell values into an array of shape ``cell_shape``."""
-        out = np.full(int(np.prod(self.cell_shape)), fill, dtype=np.result_type(values, np.float64))
-        out[self.cell_index] = values
-        return out.reshape(self.cell_shape)
-
-    def points_to_array(self, values: np.ndarray, fill=np.nan) -> np.ndarray:
-        """Scatter per-point values into an array of shape ``point_shape``."""
-        out = np.full(int(np.prod(self.point_shape)), fill, dtype=np.result_type(values, np.float64))
-        out[self.point_index] = values
-        return out.reshape(self.point_shape)
+def _type_counts(blocks) -> dict:
+    """Number of cells of each type in ``blocks``, in the order the types first appear."""
+    counts: dict = {}
+    for b in blocks:
+        counts[b.cell_type] = counts.get(b.cell_type, 0) + len(b)
+    return counts
 
 
 def _as_blocks(cells) -> list[CellBlock]:
@@ -246,18 +198,12 @@ class Mesh:
     @cached_property
     def cell_type_counts(self) -> dict:
         """Number of analysed cells of each type."""
-        counts: dict = {}
-        for b in self.blocks:
-            counts[b.cell_type] = counts.get(b.cell_type, 0) + len(b)
-        return counts
+        return _type_counts(self.blocks)
 
     @cached_property
     def boundary_type_counts(self) -> dict:
         """Number of lower-dimensional (boundary) cells of each type, not analysed."""
-        counts: dict = {}
-        for b in self.boundary_blocks:
-            counts[b.cell_type] = counts.get(b.cell_type, 0) + len(b)
-        return counts
+        return _type_counts(self.boundary_blocks)
 
     @cached_property
     def signature(self) -> str:
@@ -433,93 +379,20 @@ class Mesh:
 
     def _local_faces(self, block: CellBlock) -> list:
         """Local corner lists of the faces (3D) or edges (2D) of a block's cells."""
-        if block.cell_type == "polygon":
-            k = block.connectivity.shape[1]
-            return [(i, (i + 1) % k) for i in range(k)]
-        return FACES[block.cell_type]
+        return local_faces(block)
 
     def _face_rows(self):
-        """Every face of every cell as sorted corner columns, block after block, face after face.
-
-        Returns ``(columns, row_starts)``: ``columns`` w equal-length arrays (w = 4 in 3D,
-        triangles with -1 in the first; 2 in 2D; the first is left out when every face is a
-        triangle), the corners of each row in increasing order; ``row_starts`` the first row of
-        each block. Row ``row_starts[b] + j * n_b + i`` is local face j of cell i of block b.
-        """
-        sizes = [len(f) for b in self.blocks for f in self._local_faces(b)]
-        width = 2 if self.dimension == 2 else (3 if max(sizes) == 3 else 4)
-        counts = [len(b) * len(self._local_faces(b)) for b in self.blocks]
-        row_starts = np.concatenate([[0], np.cumsum(counts)]).astype(np.int64)
-        dtype = index_dtype(self.n_points + 1)
-        shape = (width, int(row_starts[-1]))
-        # -1 pads the triangles of a table with quads; a table of one face size is filled whole
-        columns = np.full(shape, -1, dtype=dtype) if min(sizes, default=width) < width else np.empty(shape, dtype)
-        for block, start in zip(self.blocks, row_starts[:-1]):
-            corners, n = np.ascontiguousarray(block.connectivity.T, dtype=dtype), len(block)
-            for j, face in enumerate(self._local_faces(block)):
-                rows = slice(int(start) + j * n, int(start) + (j + 1) * n)
-                for t, col in enumerate(sort_columns([corners[i] for i in face])):
-                    columns[width - len(face) + t, rows] = col
-        return columns, row_starts
+        """Every face of every cell as sorted corner columns (see :func:`._faces.face_rows`)."""
+        return face_rows(self)
 
     def _row_owners(self, rows: np.ndarray, row_starts: np.ndarray) -> np.ndarray:
         """The cell that owns each face row of :meth:`_face_rows`."""
-        if len(self.blocks) == 1:
-            return rows.astype(np.int64) % len(self.blocks[0])  # int64 whatever the promotion rules
-        block = np.searchsorted(row_starts, rows, side="right") - 1
-        n = np.array([len(b) for b in self.blocks], dtype=np.int64)
-        return self.block_offsets[block] + (rows - row_starts[block]) % n[block]
+        return row_owners(self, rows, row_starts)
 
     @cached_property
     def _face_topology(self) -> dict:
-        """Face grouping, done once: what :attr:`face_pairs`, :attr:`boundary_faces` and the
-        face numbers of :meth:`face_numbers` are read from (the grouping itself is not kept).
-
-        Faces are numbered in the lexicographic order of their sorted corners.
-        """
-        columns, row_starts = self._face_rows()
-        order, starts = group_columns(list(columns))
-        m = order.size
-        sizes = np.diff(starts, append=m).astype(index_dtype(m + 1))
-        # faces owned by one cell only
-        lone = order[starts[sizes == 1]]
-        width = 2 if self.dimension == 2 else 4
-        corners = np.full((lone.size, width), -1, dtype=np.int64)
-        corners[:, width - columns.shape[0]:] = columns[:, lone].T
-        boundary = (corners, self._row_owners(lone, row_starts))
-        del columns, lone
-        # cells sharing a face: the two rows of every face seen twice
-        shared = starts[sizes == 2]
-        first = self._row_owners(order[shared], row_starts)
-        high = self._row_owners(order[shared + 1], row_starts)
-        del shared
-        low = np.minimum(first, high)
-        np.maximum(first, high, out=high)
-        apart = low != high
-        key = low[apart].astype(np.int64)  # the product below needs 64 bits
-        key *= self.n_cells
-        key += high[apart]
-        del first, low, high, apart
-        key = unique_ints(key)
-        # int32 where cell ids times a small count (faces per cell) still fit: users build
-        # table offsets as cell * width in the pairs' own dtype
-        pairs = np.empty((key.size, 2), dtype=np.int32 if self.n_cells < 2 ** 24 else np.int64)
-        np.divmod(key, np.int64(self.n_cells), out=(pairs[:, 0], pairs[:, 1]), casting="unsafe")
-        del key
-        # face numbers of the cells that have quad faces (split by the contouring); others None
-        numbers = [None] * len(self.blocks)
-        quads = [b for b, block in enumerate(self.blocks) if block.cell_type in ("hexahedron", "wedge", "pyramid")]
-        if quads and self.dimension == 3 and self.regular_grid is not None and self._grid_face_numbers is not None:
-            quads = []  # :meth:`face_numbers` numbers a grid's faces by their grid positions
-        if quads:
-            dtype = index_dtype(starts.size)
-            group = np.empty(m, dtype=dtype)
-            group[order] = np.repeat(np.arange(starts.size, dtype=dtype), sizes)
-            for b in quads:
-                n, local = len(self.blocks[b]), len(self._local_faces(self.blocks[b]))
-                ids = group[row_starts[b]:row_starts[b] + local * n].reshape(local, n)
-                numbers[b] = np.ascontiguousarray(ids.T)
-        return {"pairs": pairs, "boundary": boundary, "numbers": numbers, "count": int(starts.size)}
+        """Face grouping, done once (see :func:`._faces.face_topology`)."""
+        return face_topology(self)
 
     def face_numbers(self) -> list:
         """Per block, the number of each local face of each cell, shape (n, faces per cell).
@@ -539,51 +412,14 @@ class Mesh:
 
     @cached_property
     def _grid_face_numbers(self) -> list | None:
-        """Face numbers of a regular grid of hexahedra from the grid positions of the corners.
-
-        Face ``(axis a, plane p, lower cell indices along the other two axes)`` gets
-        ``offset[a] + ravel(...)``. The same faces as the general grouping (faces with the
-        same corner points): every face must lie in one grid plane with its four corners on
-        the four corners of one grid square, else None (the general grouping is used).
-        """
-        grid = self.regular_grid
-        cells = grid.cell_shape
-        small = np.int16 if max(grid.point_shape) < 2 ** 15 else np.int64
-        position = [i.astype(small) for i in np.unravel_index(grid.point_index, grid.point_shape)]
-        shapes = [tuple(n + (a == axis) for a, n in enumerate(cells)) for axis in range(3)]
-        offsets = np.cumsum([0] + [int(np.prod(s)) for s in shapes])
-        dtype = index_dtype(int(offsets[-1]))
-        out = []
-        for block in self.blocks:
-            conn = block.connectivity
-            faces = FACES[block.cell_type]
-            numbers = np.empty((len(block), len(faces)), dtype=dtype)
-            for start in range(0, len(block), CHUNK):
-                corners = np.ascontiguousarray(conn[start:start + CHUNK].T)
-                for j, face in enumerate(faces):
-                    ids = grid_face_ids([[i[corners[c]] for c in face] for i in position], shapes, offsets)
-                    if ids is None:
-                        return None
-                    numbers[start:start + CHUNK, j] = ids
-            out.append(numbers)
-        return out
+        """Face numbers of a regular grid of hexahedra from grid positions, or None (:func:`._faces.grid_face_numbers`)."""
+        return grid_face_numbers(self)
 
     @property
     def _faces(self):
-        """All cell faces (3D) or edges (2D) as sorted corners, their owner cell, grouped.
-
-        Returns ``(faces, owners, order, starts)``: faces (m, w) with sorted corners (triangles
-        padded with -1 in front), owners (m,), ``order`` a permutation that groups equal
-        faces together and ``starts`` the first position of each group in that order.
-        Built on every call (not cached: the mesh keeps only what is read from it).
-        """
-        columns, row_starts = self._face_rows()
-        order, starts = group_columns(list(columns))
-        width = 2 if self.dimension == 2 else 4
-        faces = np.full((columns.shape[1], width), -1, dtype=np.int64)
-        faces[:, width - columns.shape[0]:] = columns.T
-        owners = self._row_owners(np.arange(columns.shape[1]), row_starts)
-        return faces, owners, order, starts
+        """All cell faces grouped: ``(faces, owners, order, starts)``, built on every call
+        (see :func:`._faces.grouped_faces`)."""
+        return grouped_faces(self)
 
     @property
     def face_pairs(self) -> np.ndarray:
@@ -633,79 +469,13 @@ class Mesh:
     @cached_property
     def edges(self) -> np.ndarray:
         """Unique edges of all cells as point pairs (lower index first), shape (n_edges, 2)."""
-        rows = []
-        for block in self.blocks:
-            conn = block.connectivity
-            if block.cell_type == "polygon":
-                k = conn.shape[1]
-                local = [(i, (i + 1) % k) for i in range(k)]
-            else:
-                local = EDGES[block.cell_type]
-            for a, b in local:
-                rows.append(np.stack([conn[:, a], conn[:, b]], axis=1))
-        e = sort_small_rows(np.concatenate(rows))
-        e = e[e[:, 0] != e[:, 1]]
-        key = unique_ints(e[:, 0] * np.int64(self.n_points) + e[:, 1])
-        return np.stack([key // self.n_points, key % self.n_points], axis=1)
+        return unique_edges(self)
 
     # ---------------------------------------------------------- regular grids
     @cached_property
     def regular_grid(self) -> RegularGrid | None:
         """The grid layout when the mesh is a full rectilinear grid of quads or hexahedra, else None."""
-        wanted = "quad" if self.dimension == 2 else "hexahedron"
-        if any(b.cell_type != wanted for b in self.blocks):
-            return None
-        X = self.coordinates
-        used = self.used_points
-        if used.size != self.n_points:
-            return None
-        axes = []
-        scale = float(np.ptp(X, axis=0).max()) or 1.0
-        tol = 1e-9 * scale
-        for d in range(self.dimension):
-            s = np.sort(X[:, d])
-            starts = np.concatenate([[0], np.flatnonzero(np.diff(s) > tol) + 1])
-            if starts.size < 2:
-                return None
-            axes.append(s[starts])
-        point_shape = tuple(len(a) for a in axes)
-        cell_shape = tuple(n - 1 for n in point_shape)
-        if int(np.prod(point_shape)) != self.n_points or int(np.prod(cell_shape)) != self.n_cells:
-            return None
-        idx = []
-        small = np.int16 if max(point_shape) < 2 ** 15 else np.int64
-        for d, values in enumerate(axes):
-            col = X[:, d]
-            i = np.searchsorted(values + tol, col)
-            if np.any(np.abs(values[np.minimum(i, values.size - 1)] - col) > tol):
-                return None
-            idx.append(i.astype(small))
-        flat_points = np.ravel_multi_index(tuple(idx), point_shape).astype(index_dtype(self.n_points), copy=False)
-        if not all_distinct(flat_points, self.n_points):
-            return None
-        # every cell spans one step along every axis: corner indices column by column, in chunks
-        conn = self.blocks[0].connectivity if len(self.blocks) == 1 else np.concatenate(
-            [b.connectivity for b in self.blocks])
-        lows = [np.empty(self.n_cells, dtype=small) for _ in idx]
-        for start in range(0, self.n_cells, CHUNK):
-            corners = np.ascontiguousarray(conn[start:start + CHUNK].T)
-            for i, low in zip(idx, lows):
-                lo, hi = i[corners[0]], i[corners[0]]
-                for c in corners[1:]:
-                    v = i[c]
-                    np.minimum(lo, v, out=lo)
-                    np.maximum(hi, v, out=hi)
-                hi -= lo
-                if np.any(hi != 1):
-                    return None
-                low[start:start + CHUNK] = lo
-        flat_cells = np.ravel_multi_index(tuple(lows), cell_shape).astype(index_dtype(self.n_cells), copy=False)
-        if not all_distinct(flat_cells, self.n_cells):
-            return None
-        steps = [np.diff(a) for a in axes]
-        uniform = all(np.allclose(s, s.mean(), rtol=1e-6, atol=0) for s in steps)
-        return RegularGrid(axes=tuple(axes), mesh_axes=tuple(self.plane_axes[: self.dimension]),
-                           cell_index=flat_cells, point_index=flat_points, uniform=bool(uniform))
+        return find_regular_grid(self)
 
     # ----------------------------------------------------- data conversions
     def point_to_cell(self, values: np.ndarray) -> np.ndarray:
@@ -733,7 +503,7 @@ class Mesh:
         flat = v.reshape(self.n_points, -1)
         finite = np.isfinite(flat)
         if self._corner_sums_direct:
-            total, count = self._corner_sums(np.where(finite, flat, 0.0), finite)
+            total, count = corner_sums(self, np.where(finite, flat, 0.0), finite)
         else:
             a = self.incidence
             total = a @ np.where(finite, flat, 0.0)
@@ -747,30 +517,6 @@ class Mesh:
         """True when every cell lists each corner once in a fixed-size block (no polygons, no
         degenerate cells): the incidence product is then a sum over connectivity columns."""
         return not any(b.cell_type == "polygon" for b in self.blocks) and not self.degenerate_cells
-
-    def _corner_sums(self, values: np.ndarray, finite: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
-        """``incidence @ values`` and ``incidence @ finite`` by gathers, block by block, in chunks.
-
-        Corners are added in connectivity order from zero, the order of the CSR product
-        (bit-identical results), without building the incidence matrix.
-        """
-        k = values.shape[1]
-        total = np.zeros((self.n_cells, k))
-        count = np.zeros((self.n_cells, k))
-        one = k == 1
-        vals = values[:, 0] if one else values
-        good = finite[:, 0] if one else finite
-        for block, offset in zip(self.blocks, self.block_offsets[:-1]):
-            conn = block.connectivity
-            for start in range(0, len(block), CHUNK):
-                corners = conn[start:start + CHUNK].T
-                rows = slice(int(offset) + start, int(offset) + start + corners.shape[1])
-                t = total[rows, 0] if one else total[rows]
-                c = count[rows, 0] if one else count[rows]
-                for col in corners:
-                    t += np.take(vals, col, axis=0)
-                    c += np.take(good, col, axis=0)
-        return total, count
 
     def cell_to_point(self, values: np.ndarray, *, method: str = "linear") -> np.ndarray:
         """Point values reconstructed from the cells around each point.
@@ -813,57 +559,13 @@ class Mesh:
         with np.errstate(invalid="ignore", divide="ignore"):
             out = np.where(weight > 0, total / np.where(weight > 0, weight, 1.0), np.nan)
         if method == "linear":
-            out = self._linear_point_values(flat, np.all(finite, axis=1), out)
+            out = linear_point_values(self, flat, np.all(finite, axis=1), out)
         return out.reshape((self.n_points,) + v.shape[1:])
 
     @cached_property
     def _point_stencil(self):
         """(point, cell) pairs of the point-cell incidence with centroid offsets, grouped by point."""
-        at = self._incidence_t
-        rows = np.repeat(np.arange(self.n_points), np.diff(at.indptr))
-        cols = at.indices.astype(np.int64)
-        dx = self.cell_centroids[cols] - self.coordinates[rows]
-        dist2 = np.einsum("nd,nd->n", dx, dx)
-        scale = np.median(self.cell_sizes) ** 2 if self.n_cells else 1.0
-        w = 1.0 / np.maximum(dist2, 1e-12 * scale)
-        return rows, cols, dx, w, at.indptr
-
-    def _linear_point_values(self, flat: np.ndarray, good: np.ndarray, fallback: np.ndarray) -> np.ndarray:
-        rows, cols, dx, w, indptr = self._point_stencil
-        d = self.dimension
-        ok = good[cols]
-        wk = np.where(ok, w, 0.0)
-        basis = np.concatenate([np.ones((len(rows), 1)), dx], axis=1)  # (m, d+1)
-        n = self.n_points
-        A = np.empty((n, d + 1, d + 1))
-        for i in range(d + 1):
-            for j in range(i, d + 1):
-                A[:, i, j] = A[:, j, i] = np.bincount(rows, weights=wk * basis[:, i] * basis[:, j], minlength=n)
-        k = flat.shape[1]
-        vals = np.where(ok[:, None], flat[cols], 0.0)
-        B = np.empty((n, d + 1, k))
-        for i in range(d + 1):
-            for c in range(k):
-                B[:, i, c] = np.bincount(rows, weights=wk * basis[:, i] * vals[:, c], minlength=n)
-        count = np.bincount(rows, weights=ok.astype(np.float64), minlength=n)
-        # a well-posed fit needs more cells than unknowns and a matrix far from singular
-        diag = np.einsum("nii->n", A)
-        det = np.linalg.det(A)
-        posed = (count > d + 1) & (np.abs(det) > 1e-10 * np.maximum(diag, 1e-300) ** (d + 1))
-        out = fallback.copy()
-        if posed.any():
-            sol = np.linalg.solve(A[posed], B[posed])[:, 0, :]
-            # keep within the range of the cells around the point (no new extremes)
-            hi = np.where(ok[:, None], flat[cols], -np.inf)
-            lo = np.where(ok[:, None], flat[cols], np.inf)
-            starts = indptr[:-1]
-            nonempty = np.diff(indptr) > 0
-            vmax = np.full((n, k), -np.inf)
-            vmin = np.full((n, k), np.inf)
-            vmax[nonempty] = np.maximum.reduceat(hi, starts[nonempty], axis=0)
-            vmin[nonempty] = np.minimum.reduceat(lo, starts[nonempty], axis=0)
-            out[posed] = np.clip(sol, vmin[posed], vmax[posed])
-        return out
+        return point_stencil(self)
 
     @cached_property
     def _incidence_t(self):

@@ -4,12 +4,11 @@ from __future__ import annotations
 
 import dataclasses
 import os
-import platform
 import time
 
-from ._files import RUN_MARKER, atomic_save_figure, atomic_write_csv, atomic_write_json, atomic_write_text
+from ._files import RUN_MARKER, atomic_write_csv, atomic_write_json, atomic_write_text
 from ._html import Page
-from ._measure_report import CAUTION
+from ._measure_report import CAUTION, manifest, save_figures
 
 __all__ = ["write_compare_report", "compare_figures"]
 
@@ -47,12 +46,12 @@ def compare_figures(result, *, overlays, level: float) -> list:
 
 def write_compare_report(out, result, *, specs, overlays, inputs: list, version: str, started: float,
                          level: float) -> None:
-    """Write every output of a comparison into ``out`` (each file atomically).
+    """Write the tables, plots, report.html and manifest.json of a comparison, each file atomically.
 
     Parameters
     ----------
     out : str or os.PathLike
-        The output folder (prepared by the run).
+        The output folder, which the run prepared.
     result : CompareResult
         The comparison's tables and both runs' tables.
     specs : pair of RunSpec
@@ -79,11 +78,7 @@ def write_compare_report(out, result, *, specs, overlays, inputs: list, version:
     for label, res in zip(result.labels, (result.first, result.second)):
         atomic_write_csv(os.path.join(out, f"steps_{label}.csv"), res.steps)
         written.append(f"steps_{label}.csv")
-    pngs = []
-    for stem, caption, fig in compare_figures(result, overlays=overlays, level=level):
-        png = atomic_save_figure(os.path.join(out, f"{stem}.png"), fig)
-        pngs.append((caption, png))
-        written.append(f"{stem}.png")
+    pngs = save_figures(out, compare_figures(result, overlays=overlays, level=level), written)
     a, b = result.labels
     page = Page("phasegauge comparison report",
                 f"{a}: {os.path.abspath(specs[0].path)} ('{specs[0].field}')  ·  "
@@ -108,13 +103,8 @@ def write_compare_report(out, result, *, specs, overlays, inputs: list, version:
     page.paragraph(CAUTION, "note")
     atomic_write_text(os.path.join(out, "report.html"), page.render())
     written.append("report.html")
-    manifest = {
-        "tool": "phasegauge", "version": version, "command": "compare",
-        "created": time.strftime("%Y-%m-%dT%H:%M:%S%z"),
-        "runs": [dataclasses.asdict(s) for s in specs],
-        "inputs": list(inputs), "level": level, "outputs": written,
-        "timings": {"total_seconds": round(time.time() - started, 3)},
-        "machine": {"python": platform.python_version(), "platform": platform.platform()},
-    }
-    atomic_write_json(os.path.join(out, "manifest.json"), manifest)
+    record = manifest("compare", version=version, inputs=inputs,
+                      fields={"runs": [dataclasses.asdict(s) for s in specs], "level": level},
+                      outputs=written, timings={"total_seconds": round(time.time() - started, 3)})
+    atomic_write_json(os.path.join(out, "manifest.json"), record)
     atomic_write_json(os.path.join(out, RUN_MARKER), {"run_key": "", "state": "complete"})

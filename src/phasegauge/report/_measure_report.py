@@ -11,10 +11,31 @@ import numpy as np
 from ._files import RUN_MARKER, atomic_save_figure, atomic_write_csv, atomic_write_json, atomic_write_text
 from ._html import Page
 
-__all__ = ["write_measure_report", "measure_figures"]
+__all__ = ["write_measure_report", "measure_figures", "save_figures", "manifest"]
 
 CAUTION = ("These figures describe the simulation, not the physical process. Design decisions rest on "
            "validated models, experiments and licensed engineering judgement under local codes.")
+
+
+def save_figures(out: str, figures, written: list) -> list:
+    """Save each (file stem, caption, Figure) as ``out/<stem>.png``; return (caption, PNG bytes) pairs.
+
+    The names of the files are appended to ``written``.
+    """
+    pngs = []
+    for stem, caption, fig in figures:
+        name = f"{stem}.png"
+        pngs.append((caption, atomic_save_figure(os.path.join(out, name), fig)))
+        written.append(name)
+    return pngs
+
+
+def manifest(command: str, *, version: str, inputs: list, fields: dict, outputs: list, timings: dict) -> dict:
+    """The manifest of a run: tool, version, command, time, ``fields``, inputs, outputs, timings, machine."""
+    return {"tool": "phasegauge", "version": version, "command": command,
+            "created": time.strftime("%Y-%m-%dT%H:%M:%S%z"), **fields, "inputs": list(inputs),
+            "outputs": outputs, "timings": timings,
+            "machine": {"python": platform.python_version(), "platform": platform.platform()}}
 
 
 def measure_figures(result, snapshots: dict | None = None) -> list:
@@ -74,35 +95,19 @@ def write_measure_report(out, result, *, series: dict, inputs: list, snapshots: 
     if result.audit:
         atomic_write_json(os.path.join(out, "diffusion_audit.json"), result.audit)
         written.append("diffusion_audit.json")
-    pngs = []
-    for stem, caption, fig in measure_figures(result, snapshots):
-        name = f"{stem}.png"
-        png = atomic_save_figure(os.path.join(out, name), fig)
-        pngs.append((caption, png))
-        written.append(name)
+    pngs = save_figures(out, measure_figures(result, snapshots), written)
     page = _page(result, series, pngs, execution, version)
     atomic_write_text(os.path.join(out, "report.html"), page.render())
     written.append("report.html")
     contours = sorted(os.listdir(os.path.join(out, "contours"))) if os.path.isdir(
         os.path.join(out, "contours")) else []
-    manifest = {
-        "tool": "phasegauge",
-        "version": version,
-        "command": "measure",
-        "created": time.strftime("%Y-%m-%dT%H:%M:%S%z"),
-        "series": dict(series),
-        "inputs": list(inputs),
-        "options": _options_dict(result.options),
-        "execution": execution,
-        "skipped_steps": result.skipped,
-        "warnings": list(step_warnings),
-        "flags": result.flags,
-        "outputs": written + [f"contours/{c}" for c in contours],
-        "timings": {"total_seconds": round(time.time() - started, 3),
-                    "report_seconds": round(time.time() - t0, 3), **step_timings},
-        "machine": {"python": platform.python_version(), "platform": platform.platform()},
-    }
-    atomic_write_json(os.path.join(out, "manifest.json"), manifest)
+    fields = {"series": dict(series), "options": _options_dict(result.options), "execution": execution,
+              "skipped_steps": result.skipped, "warnings": list(step_warnings), "flags": result.flags}
+    timings = {"total_seconds": round(time.time() - started, 3), "report_seconds": round(time.time() - t0, 3),
+               **step_timings}
+    record = manifest("measure", version=version, inputs=inputs, fields=fields,
+                      outputs=written + [f"contours/{c}" for c in contours], timings=timings)
+    atomic_write_json(os.path.join(out, "manifest.json"), record)
     atomic_write_json(os.path.join(out, RUN_MARKER), {"run_key": _marker_key(out), "state": "complete"})
 
 

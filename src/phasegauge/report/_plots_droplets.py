@@ -6,6 +6,8 @@ global state (Agg canvas), so they are safe in worker processes; the caller save
 
 from __future__ import annotations
 
+from types import MappingProxyType
+
 import numpy as np
 import pandas as pd
 from matplotlib.figure import Figure
@@ -15,13 +17,13 @@ from ._canvas import new_figure
 
 __all__ = ["plot_droplet_count", "plot_size_distribution"]
 
-_EVENT_STYLE = {
+_EVENT_STYLE = MappingProxyType({
     "breakup": ("tab:red", "v"),
     "coalescence": ("tab:blue", "^"),
     "complex": ("tab:purple", "D"),
     "appearance": ("tab:green", "o"),
     "disappearance": ("tab:gray", "x"),
-}
+})
 
 
 def _counts(table: pd.DataFrame) -> pd.DataFrame:

@@ -19,12 +19,11 @@ import numpy as np
 
 from ..analysis import compare as cmp
 from ..errors import OptionError, PhasegaugeError, PhasegaugeWarning
+from ..model.axes import AXIS_NAMES
 from .measure import MeasureOptions
 
 __all__ = ["SampledField", "SamplingOptions", "SamplingPlan", "plan_sampling", "paired_shapes",
            "overlay_arrays"]
-
-_AXIS_NAMES = "xyz"
 
 
 @dataclass(frozen=True)
@@ -91,7 +90,7 @@ class SamplingPlan:
 
 
 def _axis_names(mesh) -> tuple:
-    return tuple(_AXIS_NAMES[i] for i in mesh.plane_axes[:2]) if mesh.dimension == 2 else tuple(_AXIS_NAMES)
+    return tuple(AXIS_NAMES[i] for i in mesh.plane_axes[:2]) if mesh.dimension == 2 else AXIS_NAMES
 
 
 def plan_sampling(series_a, series_b, *, spacing=None, time_tolerance=None) -> SamplingPlan:

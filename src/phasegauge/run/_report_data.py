@@ -9,9 +9,23 @@ from __future__ import annotations
 
 import numpy as np
 
-__all__ = ["series_record", "series_input_files", "interface_snapshots", "measure_report_data"]
+from ..model.axes import AXIS_NAMES
 
-_AXIS_NAMES = "xyz"
+__all__ = ["series_record", "series_input_files", "interface_snapshots", "measure_report_data",
+           "package_version"]
+
+def package_version() -> str:
+    """The phasegauge version that runs, from the installed package's metadata (``"unknown"`` without one).
+
+    The run sits below the package's ``__init__`` in the layers, so it reads the version the way any
+    other program would instead of importing it upwards.
+    """
+    from importlib import metadata
+
+    try:
+        return metadata.version("phasegauge")
+    except metadata.PackageNotFoundError:
+        return "unknown"
 
 
 def series_record(series) -> dict:
@@ -59,7 +73,7 @@ def interface_snapshots(mesh, contours: dict, times: dict | None = None) -> dict
     axes = list(mesh.plane_axes) if mesh.dimension == 2 else [0, 1, 2]
     steps = {step: (np.asarray(c.points)[:, axes], np.asarray(c.elements)) for step, c in sorted(drawn.items())}
     return {"steps": steps, "times": dict(times or {}), "bounds": np.asarray(mesh.bounds)[:, axes],
-            "axis_names": tuple(_AXIS_NAMES[a] for a in axes)}
+            "axis_names": tuple(AXIS_NAMES[a] for a in axes)}
 
 
 def measure_report_data(series, result) -> dict:
@@ -69,8 +83,6 @@ def measure_report_data(series, result) -> dict:
     of the steps whose contours were kept), ``step_warnings`` (each step's warnings once),
     ``step_timings`` and ``version``.
     """
-    from .. import __version__
-
     results = list(result.results)
     contours = {r.index: getattr(r, "contour", None) for r in results}
     return {
@@ -78,7 +90,7 @@ def measure_report_data(series, result) -> dict:
         "inputs": series_input_files(series, results),
         "snapshots": interface_snapshots(result.mesh, contours, {r.index: r.time for r in results}),
         "step_warnings": sorted({m for r in results for m in r.messages}),
+        "version": package_version(),
         "step_timings": {"step_seconds_sum": round(sum(r.seconds for r in results if not r.reused), 3),
                          "steps_reused": sum(1 for r in results if r.reused)},
-        "version": __version__,
     }

@@ -171,13 +171,12 @@ def _compare_runs(first, second, *, out, overwrite, level, time_tolerance, spaci
                            droplet_statistics=drop_stats, reference_checks=reference_checks,
                            first=res_a, second=res_b, labels=labels)
     if out is not None:
-        from .. import __version__
         from ..report._compare_report import write_compare_report
-        from ._report_data import series_input_files
+        from ._report_data import package_version, series_input_files
 
         inputs = [f for s, res in zip(series, runs) for f in series_input_files(s, res.results)]
         write_compare_report(out, result, specs=(first, second), overlays=overlays, inputs=inputs,
-                             version=__version__, started=started, level=level)
+                             version=package_version(), started=started, level=level)
     return result
 
 

@@ -1,0 +1,181 @@
+"""Faces and edges of a mesh's cells: face rows, their grouping into shared and boundary faces, numbers.
+
+What :class:`~phasegauge.model.mesh.Mesh` reads its face topology from (``face_pairs``,
+``boundary_faces``, ``face_numbers``, ``edges``): every face of every cell as sorted corner
+columns, grouped by packed sorts (``_grouping``); on a regular grid of hexahedra the faces are
+numbered by their grid position instead. Functions of the mesh; the mesh caches their results.
+"""
+
+from __future__ import annotations
+
+from typing import TYPE_CHECKING
+
+import numpy as np
+
+from ._grouping import CHUNK, grid_face_ids, group_columns, index_dtype, sort_columns, sort_small_rows, unique_ints
+from .cells import EDGES, FACES
+
+if TYPE_CHECKING:
+    from .mesh import CellBlock, Mesh
+
+__all__ = ["local_faces", "face_rows", "row_owners", "face_topology", "grid_face_numbers", "grouped_faces",
+           "unique_edges"]
+
+
+def local_faces(block: CellBlock) -> list:
+    """Local corner lists of the faces (3D) or edges (2D) of a block's cells."""
+    if block.cell_type == "polygon":
+        k = block.connectivity.shape[1]
+        return [(i, (i + 1) % k) for i in range(k)]
+    return FACES[block.cell_type]
+
+
+def face_rows(mesh: Mesh):
+    """Every face of every cell as sorted corner columns, block after block, face after face.
+
+    Returns ``(columns, row_starts)``: ``columns`` w equal-length arrays (w = 4 in 3D,
+    triangles with -1 in the first; 2 in 2D; the first is left out when every face is a
+    triangle), the corners of each row in increasing order; ``row_starts`` the first row of
+    each block. Row ``row_starts[b] + j * n_b + i`` is local face j of cell i of block b.
+    """
+    sizes = [len(f) for b in mesh.blocks for f in local_faces(b)]
+    width = 2 if mesh.dimension == 2 else (3 if max(sizes) == 3 else 4)
+    counts = [len(b) * len(local_faces(b)) for b in mesh.blocks]
+    row_starts = np.concatenate([[0], np.cumsum(counts)]).astype(np.int64)
+    dtype = index_dtype(mesh.n_points + 1)
+    shape = (width, int(row_starts[-1]))
+    # -1 pads the triangles of a table with quads; a table of one face size is filled whole
+    columns = np.full(shape, -1, dtype=dtype) if min(sizes, default=width) < width else np.empty(shape, dtype)
+    for block, start in zip(mesh.blocks, row_starts[:-1]):
+        corners, n = np.ascontiguousarray(block.connectivity.T, dtype=dtype), len(block)
+        for j, face in enumerate(local_faces(block)):
+            rows = slice(int(start) + j * n, int(start) + (j + 1) * n)
+            for t, col in enumerate(sort_columns([corners[i] for i in face])):
+                columns[width - len(face) + t, rows] = col
+    return columns, row_starts
+
+
+def row_owners(mesh: Mesh, rows: np.ndarray, row_starts: np.ndarray) -> np.ndarray:
+    """The cell that owns each face row of :func:`face_rows`."""
+    if len(mesh.blocks) == 1:
+        return rows.astype(np.int64) % len(mesh.blocks[0])  # int64 whatever the promotion rules
+    block = np.searchsorted(row_starts, rows, side="right") - 1
+    n = np.array([len(b) for b in mesh.blocks], dtype=np.int64)
+    return mesh.block_offsets[block] + (rows - row_starts[block]) % n[block]
+
+
+def face_topology(mesh: Mesh) -> dict:
+    """Face grouping, done once: what :attr:`face_pairs`, :attr:`boundary_faces` and the
+    face numbers of :meth:`face_numbers` are read from (the grouping itself is not kept).
+
+    Faces are numbered in the lexicographic order of their sorted corners.
+    """
+    columns, row_starts = face_rows(mesh)
+    order, starts = group_columns(list(columns))
+    m = order.size
+    sizes = np.diff(starts, append=m).astype(index_dtype(m + 1))
+    # faces owned by one cell only
+    lone = order[starts[sizes == 1]]
+    width = 2 if mesh.dimension == 2 else 4
+    corners = np.full((lone.size, width), -1, dtype=np.int64)
+    corners[:, width - columns.shape[0]:] = columns[:, lone].T
+    boundary = (corners, row_owners(mesh, lone, row_starts))
+    del columns, lone
+    # cells sharing a face: the two rows of every face seen twice
+    shared = starts[sizes == 2]
+    first = row_owners(mesh, order[shared], row_starts)
+    high = row_owners(mesh, order[shared + 1], row_starts)
+    del shared
+    low = np.minimum(first, high)
+    np.maximum(first, high, out=high)
+    apart = low != high
+    key = low[apart].astype(np.int64)  # the product below needs 64 bits
+    key *= mesh.n_cells
+    key += high[apart]
+    del first, low, high, apart
+    key = unique_ints(key)
+    # int32 where cell ids times a small count (faces per cell) still fit: users build
+    # table offsets as cell * width in the pairs' own dtype
+    pairs = np.empty((key.size, 2), dtype=np.int32 if mesh.n_cells < 2 ** 24 else np.int64)
+    np.divmod(key, np.int64(mesh.n_cells), out=(pairs[:, 0], pairs[:, 1]), casting="unsafe")
+    del key
+    # face numbers of the cells that have quad faces (split by the contouring); others None
+    numbers = [None] * len(mesh.blocks)
+    quads = [b for b, block in enumerate(mesh.blocks) if block.cell_type in ("hexahedron", "wedge", "pyramid")]
+    if quads and mesh.dimension == 3 and mesh.regular_grid is not None and mesh._grid_face_numbers is not None:
+        quads = []  # :meth:`face_numbers` numbers a grid's faces by their grid positions
+    if quads:
+        dtype = index_dtype(starts.size)
+        group = np.empty(m, dtype=dtype)
+        group[order] = np.repeat(np.arange(starts.size, dtype=dtype), sizes)
+        for b in quads:
+            n, local = len(mesh.blocks[b]), len(local_faces(mesh.blocks[b]))
+            ids = group[row_starts[b]:row_starts[b] + local * n].reshape(local, n)
+            numbers[b] = np.ascontiguousarray(ids.T)
+    return {"pairs": pairs, "boundary": boundary, "numbers": numbers, "count": int(starts.size)}
+
+
+def grid_face_numbers(mesh: Mesh) -> list | None:
+    """Face numbers of a regular grid of hexahedra from the grid positions of the corners.
+
+    Face ``(axis a, plane p, lower cell indices along the other two axes)`` gets
+    ``offset[a] + ravel(...)``. The same faces as the general grouping (faces with the
+    same corner points): every face must lie in one grid plane with its four corners on
+    the four corners of one grid square, else None (the general grouping is used).
+    """
+    grid = mesh.regular_grid
+    cells = grid.cell_shape
+    small = np.int16 if max(grid.point_shape) < 2 ** 15 else np.int64
+    position = [i.astype(small) for i in np.unravel_index(grid.point_index, grid.point_shape)]
+    shapes = [tuple(n + (a == axis) for a, n in enumerate(cells)) for axis in range(3)]
+    offsets = np.cumsum([0] + [int(np.prod(s)) for s in shapes])
+    dtype = index_dtype(int(offsets[-1]))
+    out = []
+    for block in mesh.blocks:
+        conn = block.connectivity
+        faces = FACES[block.cell_type]
+        numbers = np.empty((len(block), len(faces)), dtype=dtype)
+        for start in range(0, len(block), CHUNK):
+            corners = np.ascontiguousarray(conn[start:start + CHUNK].T)
+            for j, face in enumerate(faces):
+                ids = grid_face_ids([[i[corners[c]] for c in face] for i in position], shapes, offsets)
+                if ids is None:
+                    return None
+                numbers[start:start + CHUNK, j] = ids
+        out.append(numbers)
+    return out
+
+
+def grouped_faces(mesh: Mesh):
+    """All cell faces (3D) or edges (2D) as sorted corners, their owner cell, grouped.
+
+    Returns ``(faces, owners, order, starts)``: faces (m, w) with sorted corners (triangles
+    padded with -1 in front), owners (m,), ``order`` a permutation that groups equal
+    faces together and ``starts`` the first position of each group in that order.
+    Built on every call (not cached: the mesh keeps only what is read from it).
+    """
+    columns, row_starts = face_rows(mesh)
+    order, starts = group_columns(list(columns))
+    width = 2 if mesh.dimension == 2 else 4
+    faces = np.full((columns.shape[1], width), -1, dtype=np.int64)
+    faces[:, width - columns.shape[0]:] = columns.T
+    owners = row_owners(mesh, np.arange(columns.shape[1]), row_starts)
+    return faces, owners, order, starts
+
+
+def unique_edges(mesh: Mesh) -> np.ndarray:
+    """Unique edges of all cells as point pairs (lower index first), shape (n_edges, 2)."""
+    rows = []
+    for block in mesh.blocks:
+        conn = block.connectivity
+        if block.cell_type == "polygon":
+            k = conn.shape[1]
+            local = [(i, (i + 1) % k) for i in range(k)]
+        else:
+            local = EDGES[block.cell_type]
+        for a, b in local:
+            rows.append(np.stack([conn[:, a], conn[:, b]], axis=1))
+    e = sort_small_rows(np.concatenate(rows))
+    e = e[e[:, 0] != e[:, 1]]
+    key = unique_ints(e[:, 0] * np.int64(mesh.n_points) + e[:, 1])
+    return np.stack([key // mesh.n_points, key % mesh.n_points], axis=1)
