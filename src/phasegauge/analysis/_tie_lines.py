@@ -81,6 +81,8 @@ def _split_from(z, ln_gamma, k, iterations):
             k = new_k
             break
         k = new_k
+        if np.max(np.abs(np.log(k))) < 1e-4:   # collapsing onto one phase (the trivial solution)
+            return None
     if beta is None or not 0 < beta < 1 or np.max(np.abs(x_one - x_two)) < 1e-6:
         return None
     return x_one, x_two, beta
@@ -110,7 +112,7 @@ def _polish(z, ln_gamma, x_one, x_two, beta):
     return x_one, x_two, beta
 
 
-def liquid_liquid_split(feed, ln_gamma, *, guesses=None, iterations=2000):
+def liquid_liquid_split(feed, ln_gamma, *, guesses=None, iterations=300):
     """The liquid-liquid split (tie line) of ``feed``.
 
     Parameters
@@ -122,7 +124,7 @@ def liquid_liquid_split(feed, ln_gamma, *, guesses=None, iterations=2000):
     guesses : sequence of (x_one, x_two), optional
         Starting phase compositions; by default each pair of phases rich in one component.
     iterations : int
-        Most successive-substitution steps per start.
+        Most successive-substitution steps per start (Newton's method polishes after them).
 
     Returns
     -------
