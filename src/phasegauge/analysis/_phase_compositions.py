@@ -30,11 +30,11 @@ MIXTURE_STATES = ("stable", "metastable", "unstable")
 def _cell_arrays(mesh, composition, distance):
     values = np.asarray(composition, dtype=float)
     dist = np.asarray(distance, dtype=float)
-    n = mesh.n_cells if hasattr(mesh, "n_cells") else values.size
+    weights = np.asarray(mesh.cell_measures, dtype=float)
+    n = weights.size
     if values.shape != (n,) or dist.shape != (n,):
         raise OptionError(f"composition and distance need one value per cell ({n}), found {values.shape} and "
                           f"{dist.shape}", fix="pass cell values")
-    weights = np.asarray(mesh.cell_measures, dtype=float) if hasattr(mesh, "cell_measures") else np.ones(n)
     return values, dist, weights
 
 
@@ -58,7 +58,7 @@ def bulk_compositions(mesh, composition, distance, *, width, multiple=4.0):
     Parameters
     ----------
     mesh : Mesh
-        Supplies ``cell_measures`` (weights) and ``n_cells``.
+        Supplies ``cell_measures`` (the weights).
     composition : ndarray of shape (n_cells,), mole fraction
     distance : ndarray of shape (n_cells,), in mesh length units
         Signed distance of each cell to the interface contour (either sign convention; NaN: unknown).
