@@ -154,3 +154,28 @@ def test_binodal_against_the_thermo_package():
     assert ours.binodal_lean == pytest.approx(ref[0], abs=1e-8)
     assert ours.binodal_rich == pytest.approx(ref[1], abs=1e-8)
     assert abs(start[0] - ref[0]) < 2e-3   # the hull alone already brackets it on this grid
+
+
+@pytest.mark.parametrize("tau, alpha", [((5.7735198, 4.19731308), 0.3955669740864026),
+                                        ((4.21346491, 2.90402641), 0.45864885239545133),
+                                        ((3.71333566, 5.71380535), 0.3813830281232188)])
+def test_two_separate_splits_give_the_widest_globally_stable_pair(tau, alpha):
+    # NRTL with large tau and alpha near 0.5 has two unstable regions at one temperature; the pair
+    # must be a bridge of the lower convex hull of Delta g_mix / RT (scipy.spatial.ConvexHull on a
+    # fine grid) and satisfy isoactivity (regression: the outermost spinodal roots gave a pair that
+    # failed the tangent test, or no convergence)
+    from scipy.spatial import ConvexHull
+
+    model = NrtlModel(tau_a=tau, alpha=alpha)
+    eq = equilibrium_at(model, 300.0)
+    assert eq.confirmed
+    x = np.unique(np.concatenate([1 / (1 + np.exp(-np.linspace(-30, 30, 6001))), np.linspace(1e-4, 1 - 1e-4, 4001)]))
+    g = model.mixing_gibbs(x, 300.0)
+    hull = ConvexHull(np.column_stack([x, g]))
+    bridges = [np.sort(x[s]) for s, q in zip(hull.simplices, hull.equations) if q[1] < 0]
+    widest = max(bridges, key=lambda p: p[1] - p[0])
+    assert eq.binodal_lean == pytest.approx(widest[0], abs=5e-3)
+    assert eq.binodal_rich == pytest.approx(widest[1], abs=5e-3)
+    mu_a = model.chemical_potentials(np.array([eq.binodal_lean]), 300.0)
+    mu_b = model.chemical_potentials(np.array([eq.binodal_rich]), 300.0)
+    np.testing.assert_allclose(np.ravel(mu_a), np.ravel(mu_b), atol=1e-9)

@@ -199,8 +199,13 @@ def _tangent_gap(model, t, xa, xb):
     return np.min(model.mixing_gibbs(x, tt) - line, axis=1)
 
 
-def _hull_pair(model, t):
-    """The widest bridge of the lower convex hull of g on the grid (a start for Newton)."""
+def _hull_bridges(model, t):
+    """Bridges of the lower convex hull of g on the grid, widest first: (x_a, x_b, s_a, s_b).
+
+    Each bridge spans a two-phase region; ``s_a, s_b`` are the first and last grid compositions
+    inside it where g is concave (bounds that keep Newton off the trivial root), or the bridge's
+    middle when the concave part falls between grid points.
+    """
     x = _grid_x()
     g = model.mixing_gibbs(x, t)
     hull = []
@@ -213,11 +218,19 @@ def _hull_pair(model, t):
                 break
         hull.append(k)
     hull = np.asarray(hull)
-    gaps = np.diff(hull)
-    if gaps.max() <= 1:
-        return None
-    widest = int(np.argmax(x[hull[1:]] - x[hull[:-1]] - np.where(gaps > 1, 0.0, 2.0)))
-    return x[hull[widest]], x[hull[widest + 1]]
+    concave = _stability(model, x, t) < 0
+    bridges = []
+    for i, j in zip(hull[:-1], hull[1:]):
+        if j - i <= 1:
+            continue
+        inside = np.flatnonzero(concave[i + 1:j]) + i + 1
+        if inside.size:
+            s_a, s_b = x[inside[0]], x[inside[-1]]
+        else:
+            s_a = s_b = 0.5 * (x[i] + x[j])
+        bridges.append((x[i], x[j], s_a, s_b))
+    bridges.sort(key=lambda b: b[0] - b[1])
+    return bridges
 
 
 def _logit(x):
@@ -237,7 +250,9 @@ def binodal(model, temperature, *, spinodal_pair=None):
     Returns
     -------
     lean, rich : ndarray of shape (n,)
-        Mole fractions of the component in the two phases; NaN where one phase is stable.
+        Mole fractions of the component in the two phases; NaN where one phase is stable. Where
+        the model has two separate two-phase regions at one temperature (NRTL with large tau and
+        alpha near 0.5 can), the widest is returned.
     confirmed : ndarray of bool, shape (n,)
         The pair passed the global tangent-plane test (always true where NaN).
 
@@ -263,16 +278,14 @@ def binodal(model, temperature, *, spinodal_pair=None):
     xa, xb, ok = _newton(model, tt, middle - 2.0 * half, middle + 2.0 * half, ua_max, ub_min)
     gap = np.where(ok, _tangent_gap(model, tt, xa, xb), -1.0)
     good = ok & (gap > -1e-9)
-    for k in np.flatnonzero(~good):   # fall back to the convex hull of the grid
-        start = _hull_pair(model, tt[k])
-        if start is None:
-            continue
+    for k in np.flatnonzero(~good):   # fall back to the bridges of the convex hull of the grid
         one = tt[k:k + 1]
-        a, b, done = _newton(model, one, _logit(np.array([start[0]])), _logit(np.array([start[1]])),
-                             ua_max[k:k + 1], ub_min[k:k + 1])
-        if done[0]:
-            xa[k], xb[k], ok[k] = a[0], b[0], True
-            good[k] = _tangent_gap(model, one, a, b)[0] > -1e-9
+        for a0, b0, s_a, s_b in _hull_bridges(model, tt[k]):
+            a, b, done = _newton(model, one, _logit(np.array([a0])), _logit(np.array([b0])),
+                                 _logit(np.array([s_a])), _logit(np.array([s_b])))
+            if done[0] and _tangent_gap(model, one, a, b)[0] > -1e-9:
+                xa[k], xb[k], ok[k], good[k] = a[0], b[0], True, True
+                break
     if not ok.all():
         bad = tt[~ok]
         raise AnalysisError(f"the binodal did not converge at T = {bad[0]:g} K ({bad.size} temperature(s))",
