@@ -96,3 +96,28 @@ def test_bad_arguments_name_the_fix():
         bulk_compositions(mesh, np.zeros(16), np.zeros(16), width=0.0)
     with pytest.raises(OptionError, match="receiving"):
         solute_distribution(mesh, np.zeros(16), np.zeros(16), width=0.1, receiving="up")
+
+
+@pytest.mark.parametrize("drop", ["rich", "lean"])
+def test_gibbs_thomson_shift_against_the_exact_equilibrium_with_laplace_pressure(drop):
+    # Laplace pressure (d - 1) sigma / R adds delta = (d - 1) l / R to both chemical potentials
+    # (over RT) of the phase inside the drop (Porter & Easterling 1992, sec. 1.5; equal molar volumes);
+    # the exact compositions solve ln a_i(inside) + delta = ln a_i(outside) (scipy fsolve)
+    from scipy.optimize import fsolve
+
+    model = RegularSolutionModel(A_a=3.0)
+    t, radius, length = 300.0, 50.0, 0.01
+    delta = 2 * length / radius
+    eq = equilibrium_at(model, t)
+
+    def equations(v):
+        lean, rich = v
+        mu_lean = np.ravel(model.chemical_potentials(np.array([lean]), t))
+        mu_rich = np.ravel(model.chemical_potentials(np.array([rich]), t))
+        return (mu_rich + delta - mu_lean) if drop == "rich" else (mu_lean + delta - mu_rich)
+
+    exact = fsolve(equations, [eq.binodal_lean, eq.binodal_rich], xtol=1e-12)
+    shift = gibbs_thomson_shift(model, t, radius, capillary_length=length, dimension=3, drop=drop)
+    expected = exact - np.array([eq.binodal_lean, eq.binodal_rich])
+    np.testing.assert_allclose(shift, expected, rtol=2e-2)     # linearised: error of order delta
+    assert np.sign(shift[0]) == (1 if drop == "rich" else -1)

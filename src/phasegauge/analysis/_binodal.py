@@ -155,14 +155,28 @@ def spinodal(model, temperature):
     lean_out[tight], rich_out[tight] = x0[rows][tight], x2[rows][tight]
     lo, hi = np.concatenate([lean_out, rich_out]), np.concatenate([lean_in, rich_in])
     tt = np.concatenate([t[rows], t[rows]])
-    for _ in range(44):
-        mid = 0.5 * (lo + hi)
-        neg = _stability(model, mid, tt) < 0
-        hi = np.where(neg, mid, hi)
-        lo = np.where(neg, lo, mid)
-    root = 0.5 * (lo + hi)
+    root = _bracketed_root(lambda v: _stability(model, v, tt), lo, hi)
     lean[rows], rich[rows] = root[:rows.size], root[rows.size:]
     return lean, rich
+
+
+def _bracketed_root(f, a, b, iterations=100):
+    """Roots of ``f`` in the brackets [a, b] (f(a) >= 0 > f(b)), all at once: the Illinois method."""
+    fa, fb = f(a), f(b)
+    for _ in range(iterations):
+        done = (np.abs(b - a) <= 1e-14 * np.maximum(np.abs(b), 1e-300) + 1e-300) | (fb == 0)
+        if done.all():
+            break
+        with np.errstate(divide="ignore", invalid="ignore"):
+            c = b - fb * (b - a) / (fb - fa)
+        bad = ~np.isfinite(c) | (c <= np.minimum(a, b)) | (c >= np.maximum(a, b))
+        c = np.where(bad, 0.5 * (a + b), c)
+        c = np.where(done, b, c)
+        fc = f(c)
+        crossed = np.sign(fc) != np.sign(fb)
+        a, fa = np.where(crossed, b, a), np.where(crossed, fb, 0.5 * fa)
+        b, fb = c, fc
+    return b
 
 
 def _newton(model, t, ua, ub, ua_max, ub_min, iterations=80):

@@ -175,14 +175,15 @@ def solute_distribution(mesh, solute, distance, *, width, multiple=4.0, receivin
     return out
 
 
-def gibbs_thomson_shift(model, temperature, radius, *, capillary_length, dimension=3):
+def gibbs_thomson_shift(model, temperature, radius, *, capillary_length, dimension=3, drop="rich"):
     """Leading-order shift of the coexisting compositions around a drop of radius ``radius``.
 
-    The pressure jump across a curved interface, ``(d - 1) sigma / R``, raises the exchange
-    potential ``d(Delta g_mix / RT)/dx`` of both phases by
-    ``delta = (d - 1) l / (R (x_rich - x_lean))`` with the capillary length
-    ``l = sigma v_m / (R_gas T)`` (equal molar volumes); each composition moves by
-    ``delta / g''(x)``, both in the same direction.
+    The pressure jump across a curved interface, ``(d - 1) sigma / R``, adds
+    ``delta = (d - 1) l / R`` to both chemical potentials (over RT) inside the drop, with the
+    capillary length ``l = sigma v_m / (R_gas T)`` (equal molar volumes). Equal exchange
+    potentials ``g'(x)`` and the second component's potential then shift the exchange potential by
+    ``delta / (x_rich - x_lean)`` (linearised about the planar binodal), and each composition by
+    that over ``g''(x)``: both up for a rich drop, both down for a lean one.
 
     Parameters
     ----------
@@ -193,6 +194,8 @@ def gibbs_thomson_shift(model, temperature, radius, *, capillary_length, dimensi
         ``sigma v_m / (R_gas T)``; for the double well, ``sigma / h`` in its units.
     dimension : {2, 3}
         2: a circular drop (one curvature), 3: a sphere.
+    drop : {'rich', 'lean'}
+        Which phase forms the drop.
 
     Returns
     -------
@@ -201,13 +204,16 @@ def gibbs_thomson_shift(model, temperature, radius, *, capillary_length, dimensi
     """
     if dimension not in (2, 3):
         raise OptionError(f"dimension must be 2 or 3, found {dimension!r}", fix="give the mesh dimension")
+    if drop not in ("rich", "lean"):
+        raise OptionError(f"drop must be 'rich' or 'lean', found {drop!r}", fix="name the phase inside the drop")
     if not (np.isfinite(radius) and radius > 0):
         raise OptionError(f"the drop radius must be > 0, found {radius!r}", fix="give a measured radius")
     lean, rich, _ = binodal(model, temperature)
     lean, rich = float(lean[0]), float(rich[0])
     if not np.isfinite(lean):
         return float("nan"), float("nan")
-    delta = (dimension - 1) * float(capillary_length) / (float(radius) * (rich - lean))
+    sign = 1.0 if drop == "rich" else -1.0
+    delta = sign * (dimension - 1) * float(capillary_length) / (float(radius) * (rich - lean))
     shifts = []
     for x in (lean, rich):
         if isinstance(model, DoubleWellModel):
