@@ -121,3 +121,9 @@ def test_gibbs_thomson_shift_against_the_exact_equilibrium_with_laplace_pressure
     expected = exact - np.array([eq.binodal_lean, eq.binodal_rich])
     np.testing.assert_allclose(shift, expected, rtol=2e-2)     # linearised: error of order delta
     assert np.sign(shift[0]) == (1 if drop == "rich" else -1)
+
+
+def test_equilibrium_gap_is_nan_when_a_value_is_missing():
+    assert equilibrium_gap(0.1, 0.9, 0.12, 0.85) == pytest.approx(0.05)
+    assert np.isnan(equilibrium_gap(0.1, float("nan"), 0.12, 0.85))
+    assert np.isnan(equilibrium_gap(0.1, 0.9, float("nan"), float("nan")))

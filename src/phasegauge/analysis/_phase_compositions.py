@@ -92,7 +92,7 @@ def bulk_compositions(mesh, composition, distance, *, width, multiple=4.0):
 
 def equilibrium_gap(bulk_lean, bulk_rich, binodal_lean, binodal_rich):
     """The larger distance of the measured bulk compositions from the binodal pair (NaN if any is NaN)."""
-    return float(max(abs(bulk_lean - binodal_lean), abs(bulk_rich - binodal_rich)))
+    return float(np.max(np.abs([bulk_lean - binodal_lean, bulk_rich - binodal_rich])))
 
 
 def mixture_state(model, temperature, composition):
