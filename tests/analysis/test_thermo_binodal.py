@@ -179,3 +179,18 @@ def test_two_separate_splits_give_the_widest_globally_stable_pair(tau, alpha):
     mu_a = model.chemical_potentials(np.array([eq.binodal_lean]), 300.0)
     mu_b = model.chemical_potentials(np.array([eq.binodal_rich]), 300.0)
     np.testing.assert_allclose(np.ravel(mu_a), np.ravel(mu_b), atol=1e-9)
+
+
+def test_closed_loop_has_a_lower_and_an_upper_critical_temperature():
+    # alpha = 0, tau12 = tau21 = tau(T) = a + b / T + e ln T: Margules with A = 2 tau (Renon & Prausnitz
+    # 1968), critical where tau = 1 (analytic A = 2); tau peaks at T = b / e, so both an LCST and a UCST
+    from scipy.optimize import brentq
+
+    a, b, e = 69.14, -3000.0, -10.0
+    model = NrtlModel(tau_a=(a, a), tau_b=(b, b), tau_e=(e, e), alpha=0.0)
+    points = critical_points(model, temperatures=(150.0, 600.0))
+    assert [p.kind for p in points] == ["LCST", "UCST"]
+    tau = lambda t: a + b / t + e * np.log(t) - 1.0   # noqa: E731
+    expected = [brentq(tau, 150.0, b / e), brentq(tau, b / e, 600.0)]
+    np.testing.assert_allclose([p.temperature for p in points], expected, rtol=1e-8)
+    assert not equilibrium_at(model, 170.0).separates and equilibrium_at(model, 300.0).separates
