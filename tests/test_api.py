@@ -11,7 +11,7 @@ MODULES = ["phasegauge", "phasegauge.io", "phasegauge.report", "phasegauge.sampl
            "phasegauge.run.measure", "phasegauge.recipes", "phasegauge.run.compare", "phasegauge.meshgen",
            "phasegauge.run.options", "phasegauge.run.step", "phasegauge.run.cache", "phasegauge.run.executors",
            "phasegauge.run.assemble", "phasegauge.model.fields", "phasegauge.model.axes",
-           "phasegauge.model.outline"]
+           "phasegauge.model.outline", "phasegauge.analysis.thermo", "phasegauge.model.mixture_models"]
 
 
 @pytest.mark.parametrize("name", MODULES)

@@ -283,6 +283,66 @@ def run(recipe, overwrite, resume, workers, quiet):
 
 
 @main.command()
+@click.argument("model_file")
+@click.option("--temperature", "-T", type=float, default=None, help="Temperature in K: binodal, spinodal, critical point.")
+@click.option("--temperatures", default=None, help="LO,HI in K: the phase diagram over this range (needs -o).")
+@click.option("--count", type=int, default=200, show_default=True, help="Temperatures in the phase diagram.")
+@click.option("--json", "as_json", is_flag=True, help="Print one JSON object instead of text.")
+@click.option("--out", "-o", "out", default=None, help="Output folder of the phase diagram (CSV and PNG).")
+@click.option("--overwrite", is_flag=True, help="Replace an existing output folder.")
+def equilibrium(model_file, temperature, temperatures, count, as_json, out, overwrite):
+    """Coexisting compositions of a mixture model file (TOML): binodal, spinodal, critical point.
+
+    With --temperature T: the binodal pair (binodal_lean, binodal_rich), the spinodal pair and the
+    critical temperature and composition (UCST or LCST). With --temperatures LO,HI -o OUT: the
+    phase diagram as OUT/phase_diagram.csv and OUT/phase_diagram.png.
+    """
+    from .errors import OptionError
+    from .io import read_mixture_model
+    from .report._files import strict_json
+    from .run.equilibrium import equilibrium_record, phase_diagram_run
+
+    if (temperature is None) == (temperatures is None):
+        raise OptionError("give either --temperature T or --temperatures LO,HI", fix="for example --temperature 298.15")
+    if temperatures is not None and out is None:
+        raise OptionError("--temperatures writes a phase diagram and needs an output folder",
+                          fix="add -o OUT (a new folder)")
+    model = read_mixture_model(model_file)
+    if temperature is not None:
+        record = equilibrium_record(model, temperature, path=model_file)
+        if as_json:
+            click.echo(json.dumps(strict_json(record), indent=2, allow_nan=False))
+            return
+        click.echo(f"model: {record['kind_of_model']}" + (f", x = mole fraction of {model.component}"
+                                                          if model.component else ""))
+        if record["state"] == "two phases":
+            click.echo(f"at {record['temperature']:g} K: two phases, binodal_lean {record['binodal_lean']:.6f}, "
+                       f"binodal_rich {record['binodal_rich']:.6f}")
+            click.echo(f"spinodal: {record['spinodal_lean']:.6f} to {record['spinodal_rich']:.6f}")
+        else:
+            click.echo(f"at {record['temperature']:g} K: one stable phase (no binodal)")
+        lo, hi = record["critical_search"]
+        if record["critical_points"]:
+            for point in record["critical_points"]:
+                click.echo(f"critical point: {point['temperature']:.2f} K at x = {point['composition']:.4f} "
+                           f"({point['kind']})")
+        else:
+            click.echo(f"critical point: none between {lo:g} and {hi:g} K")
+        return
+    bounds = _floats(temperatures, "--temperatures", 2)
+    record = phase_diagram_run(model, bounds, out=out, count=count, overwrite=overwrite, path=model_file)
+    if as_json:
+        click.echo(json.dumps(strict_json(record), indent=2, allow_nan=False))
+        return
+    click.echo(f"phase diagram of {record['count']} temperatures: {os.path.join(out, 'phase_diagram.csv')}, "
+               f"{os.path.join(out, 'phase_diagram.png')}")
+    for point in record["critical_points"]:
+        click.echo(f"critical point: {point['temperature']:.2f} K at x = {point['composition']:.4f} ({point['kind']})")
+    for finding in record["findings"]:
+        click.echo(f"  note: {finding}")
+
+
+@main.command()
 @click.argument("directory")
 @click.option("--only", default=None, help="Comma-separated names of the series to write (default: all).")
 @click.option("--overwrite", is_flag=True, help="Replace series already in DIRECTORY.")

@@ -1,0 +1,401 @@
+"""Spinodal, binodal and critical points of a binary liquid mixture.
+
+The binodal solves isoactivity, ``x_a gamma_1(x_a) = x_b gamma_1(x_b)`` and the same for
+component 2, by Newton's method in logit variables ``u = ln(x / (1 - x))`` (so compositions
+near 0 or 1 keep their digits), started outside the spinodal roots and kept outside them
+(which rejects the trivial root ``x_a = x_b``). Each pair is then confirmed globally: the
+common tangent must lie below ``Delta g_mix / RT`` everywhere (a tangent-plane test on a
+dense grid); a pair that fails is solved again from the lower convex hull of the grid.
+All temperatures are solved at once (numpy arrays over temperature).
+
+References
+----------
+Renon, H. and Prausnitz, J. M. (1968). AIChE Journal 14(1), 135-144 (NRTL).
+Michelsen, M. L. (1982). The isothermal flash problem. Part I. Stability.
+Fluid Phase Equilibria 9, 1-19 (tangent-plane test).
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+
+import numpy as np
+
+from ..errors import AnalysisError, OptionError
+from ..model.mixture_models import DoubleWellModel
+
+__all__ = ["BinaryEquilibrium", "CriticalPoint", "spinodal", "binodal", "critical_points", "phase_diagram",
+           "equilibrium_at"]
+
+_STEP = 1e-20            # complex step
+_U_LIMIT = 36.0          # logit bound: x down to about 2e-16
+
+
+def _grid_x():
+    """Compositions for scans and the global test: logit-spaced (ends) and evenly spaced (middle)."""
+    u = np.linspace(-_U_LIMIT + 1.0, _U_LIMIT - 1.0, 281)
+    return np.unique(np.concatenate([_sigmoid(u), np.linspace(0.002, 0.998, 250)]))
+
+
+def _sigmoid(u):
+    return 1.0 / (1.0 + np.exp(-u))
+
+
+def _temperatures(temperature):
+    t = np.atleast_1d(np.asarray(temperature, dtype=float))
+    if t.ndim != 1 or not np.all(np.isfinite(t)) or np.any(t <= 0):
+        raise OptionError(f"temperatures must be finite and > 0 K, found {temperature!r}",
+                          fix="give the temperature in kelvin")
+    return t
+
+
+def _stability(model, x, t):
+    """x (1 - x) d^2(g/RT)/dx^2 = 1 + x (1 - x) d(ln gamma_1 - ln gamma_2)/dx (complex step)."""
+    z = x + 1j * _STEP
+    ln_g1, ln_g2 = model.ln_gamma(z, t)
+    slope = np.imag(ln_g1 - ln_g2) / _STEP
+    return 1.0 + x * (1 - x) * slope
+
+
+def _potentials(model, x, t):
+    """mu_1, mu_2 (over RT) and their derivatives in u = logit(x)."""
+    z = x + 1j * _STEP * x * (1 - x)
+    mu1, mu2 = model.chemical_potentials(z, t)
+    return mu1.real, mu2.real, np.imag(mu1) / _STEP, np.imag(mu2) / _STEP
+
+
+@dataclass(frozen=True)
+class BinaryEquilibrium:
+    """Coexisting compositions of a binary mixture at one temperature.
+
+    Attributes
+    ----------
+    temperature : float, in K
+    binodal_lean, binodal_rich : float
+        Mole fractions of the component in the two coexisting phases (NaN: one stable phase).
+    spinodal_lean, spinodal_rich : float
+        Limits of the unstable region (NaN: none).
+    confirmed : bool
+        The common tangent passed the global (tangent-plane) test.
+    """
+
+    temperature: float
+    binodal_lean: float
+    binodal_rich: float
+    spinodal_lean: float
+    spinodal_rich: float
+    confirmed: bool = True
+
+    @property
+    def separates(self) -> bool:
+        """True when two liquid phases coexist at this temperature."""
+        return bool(np.isfinite(self.binodal_lean))
+
+    def as_dict(self) -> dict:
+        return {"temperature": self.temperature, "binodal_lean": self.binodal_lean,
+                "binodal_rich": self.binodal_rich, "spinodal_lean": self.spinodal_lean,
+                "spinodal_rich": self.spinodal_rich, "separates": self.separates, "confirmed": self.confirmed}
+
+
+@dataclass(frozen=True)
+class CriticalPoint:
+    """A consolute point: temperature (K), composition (mole fraction) and kind ('UCST' or 'LCST')."""
+
+    temperature: float
+    composition: float
+    kind: str
+
+
+def spinodal(model, temperature):
+    """The outermost roots of ``d^2 (Delta g_mix / RT) / dx^2 = 0`` at each temperature.
+
+    Parameters
+    ----------
+    model : NrtlModel, RegularSolutionModel or DoubleWellModel
+    temperature : float or array_like of shape (n,), in K
+
+    Returns
+    -------
+    lean, rich : ndarray of shape (n,)
+        NaN where the mixture is stable at every composition.
+    """
+    t = _temperatures(temperature)
+    if isinstance(model, DoubleWellModel):
+        lean, rich = model.spinodal()
+        return np.full(t.shape, lean), np.full(t.shape, rich)
+    x = _grid_x()
+    s = _stability(model, x[None, :], t[:, None])
+    negative = s < 0
+    has = negative.any(axis=1)
+    lean = np.full(t.shape, np.nan)
+    rich = np.full(t.shape, np.nan)
+    # a narrow unstable region (near a critical point) may fall between grid points: try the
+    # minimum of a parabola through the lowest grid value and its neighbours
+    k = np.clip(np.argmin(s, axis=1), 1, x.size - 2)
+    r = np.arange(t.size)
+    x0, x1, x2 = x[k - 1], x[k], x[k + 1]
+    s0, s1, s2 = s[r, k - 1], s[r, k], s[r, k + 1]
+    num = (x1 - x0) ** 2 * (s1 - s2) - (x1 - x2) ** 2 * (s1 - s0)
+    den = (x1 - x0) * (s1 - s2) - (x1 - x2) * (s1 - s0)
+    with np.errstate(divide="ignore", invalid="ignore"):
+        vertex = np.clip(x1 - 0.5 * num / den, x0, x2)
+    vertex = np.where(np.isfinite(vertex), vertex, x1)
+    narrow = ~has & (s1 < 0.05)
+    if narrow.any():
+        narrow[narrow] = _stability(model, vertex[narrow], t[narrow]) < 0
+    if not (has | narrow).any():
+        return lean, rich
+    rows = np.flatnonzero(has | narrow)
+    first = np.argmax(negative[rows], axis=1)
+    last = x.size - 1 - np.argmax(negative[rows, ::-1], axis=1)
+    lean_in, rich_in = x[first], x[last]
+    lean_out, rich_out = x[np.maximum(first - 1, 0)], x[np.minimum(last + 1, x.size - 1)]
+    tight = narrow[rows]
+    lean_in[tight], rich_in[tight] = vertex[rows][tight], vertex[rows][tight]
+    lean_out[tight], rich_out[tight] = x0[rows][tight], x2[rows][tight]
+    lo, hi = np.concatenate([lean_out, rich_out]), np.concatenate([lean_in, rich_in])
+    tt = np.concatenate([t[rows], t[rows]])
+    root = _bracketed_root(lambda v: _stability(model, v, tt), lo, hi)
+    lean[rows], rich[rows] = root[:rows.size], root[rows.size:]
+    return lean, rich
+
+
+def _bracketed_root(f, a, b, iterations=100):
+    """Roots of ``f`` in the brackets [a, b] (f(a) >= 0 > f(b)), all at once: the Illinois method."""
+    fa, fb = f(a), f(b)
+    for _ in range(iterations):
+        done = (np.abs(b - a) <= 1e-14 * np.maximum(np.abs(b), 1e-300) + 1e-300) | (fb == 0)
+        if done.all():
+            break
+        with np.errstate(divide="ignore", invalid="ignore"):
+            c = b - fb * (b - a) / (fb - fa)
+        bad = ~np.isfinite(c) | (c <= np.minimum(a, b)) | (c >= np.maximum(a, b))
+        c = np.where(bad, 0.5 * (a + b), c)
+        c = np.where(done, b, c)
+        fc = f(c)
+        crossed = np.sign(fc) != np.sign(fb)
+        a, fa = np.where(crossed, b, a), np.where(crossed, fb, 0.5 * fa)
+        b, fb = c, fc
+    return b
+
+
+def _newton(model, t, ua, ub, ua_max, ub_min, iterations=80):
+    """Isoactivity in logit variables, u_a kept below ua_max and u_b above ub_min."""
+    ok = np.zeros(t.shape, dtype=bool)
+    for _ in range(iterations):
+        xa, xb = _sigmoid(ua), _sigmoid(ub)
+        m1a, m2a, d1a, d2a = _potentials(model, xa, t)
+        m1b, m2b, d1b, d2b = _potentials(model, xb, t)
+        f1, f2 = m1a - m1b, m2a - m2b
+        ok = (np.abs(f1) < 1e-11) & (np.abs(f2) < 1e-11)
+        if ok.all():
+            break
+        det = -d1a * d2b + d1b * d2a
+        det = np.where(np.abs(det) < 1e-300, 1e-300, det)
+        dua = (f1 * d2b - d1b * f2) / det      # J (du_a, du_b) = -f, J = [[d1a, -d1b], [d2a, -d2b]]
+        dub = (d2a * f1 - d1a * f2) / det
+        dua, dub = np.clip(dua, -2.0, 2.0), np.clip(dub, -2.0, 2.0)
+        new_a = ua + np.where(ok, 0.0, dua)
+        new_b = ub + np.where(ok, 0.0, dub)
+        ua = np.minimum(np.where(new_a > ua_max, 0.5 * (ua + ua_max), new_a), ua_max)
+        ub = np.maximum(np.where(new_b < ub_min, 0.5 * (ub + ub_min), new_b), ub_min)
+        ua, ub = np.clip(ua, -_U_LIMIT, _U_LIMIT), np.clip(ub, -_U_LIMIT, _U_LIMIT)
+    return _sigmoid(ua), _sigmoid(ub), ok
+
+
+def _tangent_gap(model, t, xa, xb):
+    """min over the grid of g(x) - common tangent(x), per temperature (>= 0: globally stable pair)."""
+    x = _grid_x()[None, :]
+    tt = t[:, None]
+    ga, gb = model.mixing_gibbs(xa, t), model.mixing_gibbs(xb, t)
+    slope = (gb - ga) / (xb - xa)
+    line = ga[:, None] + slope[:, None] * (x - xa[:, None])
+    return np.min(model.mixing_gibbs(x, tt) - line, axis=1)
+
+
+def _hull_bridges(model, t):
+    """Bridges of the lower convex hull of g on the grid, widest first: (x_a, x_b, s_a, s_b).
+
+    Each bridge spans a two-phase region; ``s_a, s_b`` are the first and last grid compositions
+    inside it where g is concave (bounds that keep Newton off the trivial root), or the bridge's
+    middle when the concave part falls between grid points.
+    """
+    x = _grid_x()
+    g = model.mixing_gibbs(x, t)
+    hull = []
+    for k in range(x.size):
+        while len(hull) >= 2:
+            i, j = hull[-2], hull[-1]
+            if (x[j] - x[i]) * (g[k] - g[i]) - (g[j] - g[i]) * (x[k] - x[i]) <= 0:
+                hull.pop()
+            else:
+                break
+        hull.append(k)
+    hull = np.asarray(hull)
+    concave = _stability(model, x, t) < 0
+    bridges = []
+    for i, j in zip(hull[:-1], hull[1:]):
+        if j - i <= 1:
+            continue
+        inside = np.flatnonzero(concave[i + 1:j]) + i + 1
+        if inside.size:
+            s_a, s_b = x[inside[0]], x[inside[-1]]
+        else:
+            s_a = s_b = 0.5 * (x[i] + x[j])
+        bridges.append((x[i], x[j], s_a, s_b))
+    bridges.sort(key=lambda b: b[0] - b[1])
+    return bridges
+
+
+def _logit(x):
+    return np.log(x) - np.log1p(-x)
+
+
+def binodal(model, temperature, *, spinodal_pair=None):
+    """Coexisting compositions (the binodal) at each temperature by isoactivity.
+
+    Parameters
+    ----------
+    model : NrtlModel, RegularSolutionModel or DoubleWellModel
+    temperature : float or array_like of shape (n,), in K
+    spinodal_pair : tuple of ndarray, optional
+        The result of :func:`spinodal` when already computed.
+
+    Returns
+    -------
+    lean, rich : ndarray of shape (n,)
+        Mole fractions of the component in the two phases; NaN where one phase is stable. Where
+        the model has two separate two-phase regions at one temperature (NRTL with large tau and
+        alpha near 0.5 can), the widest is returned.
+    confirmed : ndarray of bool, shape (n,)
+        The pair passed the global tangent-plane test (always true where NaN).
+
+    Raises
+    ------
+    AnalysisError
+        Newton's method failed from both starts (spinodal and convex hull).
+    """
+    t = _temperatures(temperature)
+    if isinstance(model, DoubleWellModel):
+        return np.full(t.shape, model.lean), np.full(t.shape, model.rich), np.ones(t.shape, dtype=bool)
+    s_lean, s_rich = spinodal(model, t) if spinodal_pair is None else spinodal_pair
+    lean = np.full(t.shape, np.nan)
+    rich = np.full(t.shape, np.nan)
+    confirmed = np.ones(t.shape, dtype=bool)
+    rows = np.flatnonzero(np.isfinite(s_lean))
+    if rows.size == 0:
+        return lean, rich, confirmed
+    tt = t[rows]
+    ua_max, ub_min = _logit(s_lean[rows]), _logit(s_rich[rows])
+    middle = 0.5 * (ua_max + ub_min)
+    half = np.maximum(0.5 * (ub_min - ua_max), 1e-6)
+    xa, xb, ok = _newton(model, tt, middle - 2.0 * half, middle + 2.0 * half, ua_max, ub_min)
+    gap = np.where(ok, _tangent_gap(model, tt, xa, xb), -1.0)
+    good = ok & (gap > -1e-9)
+    for k in np.flatnonzero(~good):   # fall back to the bridges of the convex hull of the grid
+        one = tt[k:k + 1]
+        for a0, b0, s_a, s_b in _hull_bridges(model, tt[k]):
+            a, b, done = _newton(model, one, _logit(np.array([a0])), _logit(np.array([b0])),
+                                 _logit(np.array([s_a])), _logit(np.array([s_b])))
+            if done[0] and _tangent_gap(model, one, a, b)[0] > -1e-9:
+                xa[k], xb[k], ok[k], good[k] = a[0], b[0], True, True
+                break
+    if not ok.all():
+        bad = tt[~ok]
+        raise AnalysisError(f"the binodal did not converge at T = {bad[0]:g} K ({bad.size} temperature(s))",
+                            fix="check the model parameters; report the model file if they are right")
+    lean[rows], rich[rows], confirmed[rows] = xa, xb, good
+    return lean, rich, confirmed
+
+
+def equilibrium_at(model, temperature) -> BinaryEquilibrium:
+    """Binodal and spinodal pair at one temperature (K) as a :class:`BinaryEquilibrium`."""
+    t = _temperatures(temperature)
+    if t.size != 1:
+        raise OptionError(f"one temperature expected, found {t.size}", fix="use phase_diagram for several")
+    s = spinodal(model, t)
+    lean, rich, confirmed = binodal(model, t, spinodal_pair=s)
+    return BinaryEquilibrium(float(t[0]), float(lean[0]), float(rich[0]), float(s[0][0]), float(s[1][0]),
+                             bool(confirmed[0]))
+
+
+def _least_stability(model, t):
+    """min over x of x (1 - x) g'' at each temperature (negative: an unstable region exists)."""
+    from scipy.optimize import minimize_scalar
+
+    x = _grid_x()
+    s = _stability(model, x[None, :], np.atleast_1d(t)[:, None])
+    out = s.min(axis=1)
+    positions = x[np.argmin(s, axis=1)]
+    for k, tk in enumerate(np.atleast_1d(t)):
+        u0 = _logit(positions[k])
+        res = minimize_scalar(lambda u: float(_stability(model, _sigmoid(u), tk)), bracket=None,
+                              bounds=(u0 - 0.5, u0 + 0.5), method="bounded", options={"xatol": 1e-10})
+        if res.fun < out[k]:
+            out[k], positions[k] = res.fun, _sigmoid(res.x)
+    return out, positions
+
+
+def critical_points(model, *, temperatures=(1.0, 5000.0), samples=400):
+    """Consolute (critical) points of the model within a temperature range.
+
+    A critical point is where the unstable region appears or vanishes:
+    ``min_x x (1 - x) d^2 (Delta g_mix / RT) / dx^2 = 0``. Below an upper critical solution
+    temperature (UCST) the mixture separates, above a lower one (LCST).
+
+    Parameters
+    ----------
+    model : NrtlModel or RegularSolutionModel (a double well has none)
+    temperatures : (float, float), in K
+        Search range; scanned on ``samples`` log-spaced temperatures, then refined.
+    samples : int
+
+    Returns
+    -------
+    list of CriticalPoint
+        In order of temperature; empty when the mixture separates everywhere or nowhere in the range.
+    """
+    from scipy.optimize import brentq
+
+    if isinstance(model, DoubleWellModel):
+        return []
+    lo, hi = (float(v) for v in temperatures)
+    if not (0 < lo < hi and np.isfinite(hi)):
+        raise OptionError(f"temperature range must be 0 < LO < HI, found {temperatures!r}", fix="for example 250,400")
+    t = np.geomspace(lo, hi, int(samples))
+    x = _grid_x()
+    s = _stability(model, x[None, :], t[:, None]).min(axis=1)
+    changes = np.flatnonzero(np.sign(s[:-1]) != np.sign(s[1:]))
+    points = []
+    for k in changes:
+        def least(tk):
+            return float(_least_stability(model, np.array([tk]))[0][0])
+
+        a, b = t[k], t[k + 1]
+        fa, fb = least(a), least(b)
+        if np.sign(fa) == np.sign(fb):
+            continue
+        tc = brentq(least, a, b, xtol=1e-10 * b, rtol=1e-13)
+        xc = float(_least_stability(model, np.array([tc]))[1][0])
+        points.append(CriticalPoint(float(tc), xc, "UCST" if fa < 0 else "LCST"))
+    return points
+
+
+def phase_diagram(model, temperatures):
+    """Binodal and spinodal against temperature.
+
+    Parameters
+    ----------
+    model : NrtlModel, RegularSolutionModel or DoubleWellModel
+    temperatures : array_like of shape (n,), in K
+
+    Returns
+    -------
+    dict of ndarray of shape (n,)
+        ``temperature, binodal_lean, binodal_rich, spinodal_lean, spinodal_rich, confirmed``.
+    """
+    t = _temperatures(temperatures)
+    s = spinodal(model, t)
+    lean, rich, confirmed = binodal(model, t, spinodal_pair=s)
+    return {"temperature": t, "binodal_lean": lean, "binodal_rich": rich, "spinodal_lean": s[0],
+            "spinodal_rich": s[1], "confirmed": confirmed}

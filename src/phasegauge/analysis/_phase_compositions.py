@@ -1,0 +1,225 @@
+"""Measured phase compositions against a thermodynamic model: bulk values, mixture state, a solute.
+
+Pure functions of cell values: the caller hands the composition of each cell, its signed
+distance to the interface contour and the measured interface width.
+
+References
+----------
+Cahn, J. W. and Hilliard, J. E. (1958). Free energy of a nonuniform system. I. Interfacial
+free energy. J. Chem. Phys. 28, 258 (the tanh profile; its tail off the plateau decays as
+exp(-sqrt2 d / eps), so bulk values are read beyond 4 to 5 widths of the contour).
+Porter, D. A. and Easterling, K. E. (1992). Phase Transformations in Metals and Alloys,
+2nd ed., section 1.5 (the Gibbs-Thomson effect).
+"""
+
+from __future__ import annotations
+
+import numpy as np
+
+from ..errors import OptionError
+from ..model._statistics import weighted_quantile
+from ..model.mixture_models import DoubleWellModel
+from ._binodal import _stability, binodal, spinodal
+
+__all__ = ["bulk_compositions", "mixture_state", "solute_distribution", "equilibrium_gap", "gibbs_thomson_shift",
+           "MIXTURE_STATES"]
+
+MIXTURE_STATES = ("stable", "metastable", "unstable")
+
+
+def _cell_arrays(mesh, composition, distance):
+    values = np.asarray(composition, dtype=float)
+    dist = np.asarray(distance, dtype=float)
+    weights = np.asarray(mesh.cell_measures, dtype=float)
+    n = weights.size
+    if values.shape != (n,) or dist.shape != (n,):
+        raise OptionError(f"composition and distance need one value per cell ({n}), found {values.shape} and "
+                          f"{dist.shape}", fix="pass cell values")
+    return values, dist, weights
+
+
+def _bulk_masks(dist, width, multiple):
+    if not (np.isfinite(width) and width > 0):
+        raise OptionError(f"the interface width must be > 0, found {width!r}", fix="measure the width first")
+    if not (np.isfinite(multiple) and multiple > 0):
+        raise OptionError(f"multiple must be > 0, found {multiple!r}", fix="use 4 to 5 widths")
+    reach = multiple * width
+    return dist > reach, dist < -reach
+
+
+def bulk_compositions(mesh, composition, distance, *, width, multiple=4.0):
+    """The bulk composition of each phase, away from the interface.
+
+    Cells farther than ``multiple * width`` from the contour are the bulk; on each side the
+    volume-weighted median is the phase's composition and half the interquartile range its spread.
+    The phase with the lower median is ``lean``; when only one side has bulk cells, the
+    positive side counts as rich.
+
+    Parameters
+    ----------
+    mesh : Mesh
+        Supplies ``cell_measures`` (the weights).
+    composition : ndarray of shape (n_cells,), mole fraction
+    distance : ndarray of shape (n_cells,), in mesh length units
+        Signed distance of each cell to the interface contour (either sign convention; NaN: unknown).
+    width : float, in mesh length units
+        The measured interface width.
+    multiple : float
+        How many widths from the contour the bulk starts (4 to 5 for a tanh profile).
+
+    Returns
+    -------
+    dict
+        ``bulk_composition_lean``, ``bulk_composition_rich``, ``bulk_spread_lean``, ``bulk_spread_rich``,
+        ``bulk_cells_lean``, ``bulk_cells_rich`` (NaN and 0 where a side has no bulk cells).
+    """
+    values, dist, weights = _cell_arrays(mesh, composition, distance)
+    sides = []
+    for mask in _bulk_masks(dist, float(width), float(multiple)):
+        mask = mask & np.isfinite(values)
+        v, w = values[mask], weights[mask]
+        if v.size == 0:
+            sides.append((np.nan, np.nan, 0))
+            continue
+        q1, median, q3 = (weighted_quantile(v, w, q) for q in (0.25, 0.5, 0.75))
+        sides.append((median, 0.5 * (q3 - q1), int(v.size)))
+    if np.isfinite(sides[0][0]) and np.isfinite(sides[1][0]) and sides[0][0] < sides[1][0]:
+        sides.reverse()                  # the phase with the higher median is the rich one
+    (rich, rich_spread, n_rich), (lean, lean_spread, n_lean) = sides
+    return {"bulk_composition_lean": lean, "bulk_composition_rich": rich, "bulk_spread_lean": lean_spread,
+            "bulk_spread_rich": rich_spread, "bulk_cells_lean": n_lean, "bulk_cells_rich": n_rich}
+
+
+def equilibrium_gap(bulk_lean, bulk_rich, binodal_lean, binodal_rich):
+    """The larger distance of the measured bulk compositions from the binodal pair (NaN if any is NaN)."""
+    return float(np.max(np.abs([bulk_lean - binodal_lean, bulk_rich - binodal_rich])))
+
+
+def mixture_state(model, temperature, composition):
+    """Whether a mixture of this overall composition is stable, metastable or unstable.
+
+    Parameters
+    ----------
+    model : NrtlModel, RegularSolutionModel or DoubleWellModel
+    temperature : float, in K
+    composition : float or array_like, mole fraction
+
+    Returns
+    -------
+    str or ndarray of str
+        ``'stable'`` outside the binodal (or where one phase is stable), ``'unstable'`` inside
+        the spinodal, ``'metastable'`` between.
+    """
+    s_lean, s_rich = spinodal(model, temperature)
+    b_lean, b_rich, _ = binodal(model, temperature, spinodal_pair=(s_lean, s_rich))
+    x = np.asarray(composition, dtype=float)
+    state = np.full(x.shape, "stable", dtype=object)
+    if np.isfinite(b_lean[0]):
+        state[(x > b_lean[0]) & (x < b_rich[0])] = "metastable"
+        state[(x > s_lean[0]) & (x < s_rich[0])] = "unstable"
+    return str(state) if state.ndim == 0 else state.astype(str)
+
+
+def solute_distribution(mesh, solute, distance, *, width, multiple=4.0, receiving="positive", composition=None):
+    """How a solute (a second composition field) is distributed between the two phases.
+
+    Parameters
+    ----------
+    mesh : Mesh
+    solute : ndarray of shape (n_cells,), mole fraction of the solute
+    distance : ndarray of shape (n_cells,), signed distance to the contour
+    width, multiple : float
+        As in :func:`bulk_compositions`: the bulk of each phase.
+    receiving : {'positive', 'negative'}
+        The side of the contour (sign of ``distance``) of the phase that takes the solute up.
+    composition : ndarray of shape (n_cells,), optional
+        The main composition field; with it the lever-rule residual is computed.
+
+    Returns
+    -------
+    dict
+        ``solute_receiving``, ``solute_other`` (bulk means), ``partition_coefficient``
+        (receiving / other), ``extraction_progress`` (share of the solute amount in cells on the
+        receiving side, volume-weighted), and with ``composition`` ``lever_rule_residual``: the
+        overall solute content minus the lever rule through the two bulk states (phase fraction
+        from the main composition).
+    """
+    if receiving not in ("positive", "negative"):
+        raise OptionError(f"receiving must be 'positive' or 'negative', found {receiving!r}",
+                          fix="name the side of the contour the solute moves to")
+    values, dist, weights = _cell_arrays(mesh, solute, distance)
+    positive, negative = _bulk_masks(dist, float(width), float(multiple))
+    take, other = (positive, negative) if receiving == "positive" else (negative, positive)
+    side = (dist > 0) if receiving == "positive" else (dist < 0)
+    finite = np.isfinite(values) & np.isfinite(dist)
+
+    def mean(mask, v):
+        m = mask & finite
+        total = weights[m].sum()
+        return float(np.dot(weights[m], v[m]) / total) if total > 0 else float("nan")
+
+    amount = weights[finite] @ values[finite]
+    out = {"solute_receiving": mean(take, values), "solute_other": mean(other, values),
+           "extraction_progress": float(weights[side & finite] @ values[side & finite] / amount)
+           if amount > 0 else float("nan")}
+    out["partition_coefficient"] = (out["solute_receiving"] / out["solute_other"]
+                                    if out["solute_other"] > 0 else float("nan"))
+    if composition is not None:
+        main = np.asarray(composition, dtype=float)
+        c_take, c_other = mean(take, main), mean(other, main)
+        overall_main = mean(np.ones_like(take), main)
+        overall_solute = mean(np.ones_like(take), values)
+        fraction = (overall_main - c_other) / (c_take - c_other) if c_take != c_other else float("nan")
+        out["lever_rule_residual"] = float(overall_solute - (fraction * out["solute_receiving"]
+                                                             + (1 - fraction) * out["solute_other"]))
+    return out
+
+
+def gibbs_thomson_shift(model, temperature, radius, *, capillary_length, dimension=3, drop="rich"):
+    """Leading-order shift of the coexisting compositions around a drop of radius ``radius``.
+
+    The pressure jump across a curved interface, ``(d - 1) sigma / R``, adds
+    ``delta = (d - 1) l / R`` to both chemical potentials (over RT) inside the drop, with the
+    capillary length ``l = sigma v_m / (R_gas T)`` (equal molar volumes). Equal exchange
+    potentials ``g'(x)`` and the second component's potential then shift the exchange potential by
+    ``delta / (x_rich - x_lean)`` (linearised about the planar binodal), and each composition by
+    that over ``g''(x)``: both up for a rich drop, both down for a lean one.
+
+    Parameters
+    ----------
+    model : NrtlModel, RegularSolutionModel or DoubleWellModel
+    temperature : float, in K
+    radius : float, in the length unit of ``capillary_length``
+    capillary_length : float
+        ``sigma v_m / (R_gas T)``; for the double well, ``sigma / h`` in its units.
+    dimension : {2, 3}
+        2: a circular drop (one curvature), 3: a sphere.
+    drop : {'rich', 'lean'}
+        Which phase forms the drop.
+
+    Returns
+    -------
+    (float, float)
+        Shifts of the lean and rich binodal compositions (NaN without a split).
+    """
+    if dimension not in (2, 3):
+        raise OptionError(f"dimension must be 2 or 3, found {dimension!r}", fix="give the mesh dimension")
+    if drop not in ("rich", "lean"):
+        raise OptionError(f"drop must be 'rich' or 'lean', found {drop!r}", fix="name the phase inside the drop")
+    if not (np.isfinite(radius) and radius > 0):
+        raise OptionError(f"the drop radius must be > 0, found {radius!r}", fix="give a measured radius")
+    lean, rich, _ = binodal(model, temperature)
+    lean, rich = float(lean[0]), float(rich[0])
+    if not np.isfinite(lean):
+        return float("nan"), float("nan")
+    sign = 1.0 if drop == "rich" else -1.0
+    delta = sign * (dimension - 1) * float(capillary_length) / (float(radius) * (rich - lean))
+    shifts = []
+    for x in (lean, rich):
+        if isinstance(model, DoubleWellModel):
+            a, b = model.lean, model.rich
+            curvature = 2 * model.height * ((x - b) ** 2 + 4 * (x - a) * (x - b) + (x - a) ** 2)
+        else:
+            curvature = float(_stability(model, np.array([x]), np.array([float(temperature)]))[0]) / (x * (1 - x))
+        shifts.append(delta / curvature)
+    return shifts[0], shifts[1]

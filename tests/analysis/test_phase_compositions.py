@@ -1,0 +1,129 @@
+"""Measured bulk compositions, mixture state and solute distribution on fields built with known values."""
+
+import numpy as np
+import pytest
+
+from phasegauge.analysis.thermo import (DoubleWellModel, RegularSolutionModel, bulk_compositions, equilibrium_at,
+                                        equilibrium_gap, gibbs_thomson_shift, mixture_state, solute_distribution)
+from phasegauge.meshgen import grid_mesh
+
+LEAN, RICH = 0.070720, 0.929280          # regular solution A = 3 (analytic binodal, REFERENCES.md)
+EPS = 0.01
+
+
+def _logistic(n):
+    # Olsson & Kreiss (2005) / Cahn & Hilliard (1958) profile: 1/2 (1 + tanh(n / (2 eps)))
+    return 0.5 * (1 + np.tanh(n / (2 * EPS)))
+
+
+@pytest.mark.parametrize("kind", ["quad", "triangle"])
+def test_bulk_compositions_of_a_planar_interface(kind):
+    mesh = grid_mesh((200, 20), bounds=[(0.0, 1.0), (0.0, 0.1)], kind=kind)
+    x = mesh.cell_centroids[:, 0]
+    distance = x - 0.5
+    rng = np.random.default_rng(3)
+    composition = LEAN + (RICH - LEAN) * _logistic(distance) + rng.uniform(-1e-3, 1e-3, x.size)
+    out = bulk_compositions(mesh, composition, distance, width=EPS, multiple=4.0)
+    # truth: the plateau values the field was built with (tolerance 0.002 from the issue)
+    assert out["bulk_composition_lean"] == pytest.approx(LEAN, abs=2e-3)
+    assert out["bulk_composition_rich"] == pytest.approx(RICH, abs=2e-3)
+    assert 0 < out["bulk_spread_lean"] < 2e-3 and out["bulk_cells_lean"] > 0
+    eq = equilibrium_at(RegularSolutionModel(A_a=3.0), 300.0)
+    gap = equilibrium_gap(out["bulk_composition_lean"], out["bulk_composition_rich"], eq.binodal_lean,
+                          eq.binodal_rich)
+    assert gap < 2e-3
+
+
+def test_bulk_compositions_of_a_drop_with_the_opposite_sign():
+    # a rich drop of radius 0.25 in a lean matrix, distance positive outside (the other sign convention)
+    mesh = grid_mesh((120, 120))
+    centre = mesh.cell_centroids[:, :2] - 0.5
+    r = np.hypot(centre[:, 0], centre[:, 1])
+    distance = r - 0.25
+    composition = LEAN + (RICH - LEAN) * _logistic(-distance)
+    out = bulk_compositions(mesh, composition, distance, width=EPS, multiple=5.0)
+    assert out["bulk_composition_lean"] == pytest.approx(LEAN, abs=2e-3)
+    assert out["bulk_composition_rich"] == pytest.approx(RICH, abs=2e-3)
+
+
+def test_mixture_state_on_both_sides_of_the_binodal_and_spinodal():
+    # A = 3: binodal 0.070720, spinodal 0.211325 (analytic regular solution)
+    model = RegularSolutionModel(A_a=3.0)
+    states = mixture_state(model, 300.0, [0.05, 0.09, 0.5, 0.85, 0.95])
+    assert list(states) == ["stable", "metastable", "unstable", "metastable", "stable"]
+    assert mixture_state(model, 300.0, 0.0707) == "stable"
+    assert mixture_state(model, 300.0, 0.0708) == "metastable"
+    assert mixture_state(RegularSolutionModel(A_a=1.5), 300.0, 0.5) == "stable"   # one stable phase
+
+
+def test_solute_partition_extraction_and_lever_rule():
+    mesh = grid_mesh((400, 4), bounds=[(0.0, 1.0), (0.0, 0.01)])
+    x = mesh.cell_centroids[:, 0]
+    distance = x - 0.5
+    share = _logistic(distance)
+    solute = 0.02 + 0.03 * share             # 0.05 in the receiving (positive) phase, 0.02 in the other
+    composition = LEAN + (RICH - LEAN) * share
+    out = solute_distribution(mesh, solute, distance, width=EPS, receiving="positive", composition=composition)
+    assert out["partition_coefficient"] == pytest.approx(2.5, rel=1e-3)
+    # receiving side holds 0.5 * 0.05 - 0.03 eps ln 2 of 0.035 (integral of the logistic tail: eps ln 2)
+    expected = (0.5 * 0.05 - 0.03 * EPS * np.log(2)) / 0.035
+    assert out["extraction_progress"] == pytest.approx(expected, abs=1e-4)
+    # solute linear in the main composition: the overall state lies on the tie line (lever rule)
+    assert abs(out["lever_rule_residual"]) < 1e-6
+    extra = solute_distribution(mesh, solute + 0.01 * (np.abs(distance) < 0.02), distance, width=EPS,
+                                composition=composition)
+    assert extra["lever_rule_residual"] > 1e-4     # solute held in the interface is off the lever rule
+
+
+def test_gibbs_thomson_shift_is_small_for_large_drops_and_scales_as_one_over_radius():
+    model = RegularSolutionModel(A_a=3.0)
+    small = gibbs_thomson_shift(model, 300.0, 10.0, capillary_length=0.1, dimension=3)
+    large = gibbs_thomson_shift(model, 300.0, 100.0, capillary_length=0.1, dimension=3)
+    assert small[0] == pytest.approx(10 * large[0], rel=1e-12)
+    # symmetric model: both compositions move the same way by the same amount (g'' equal at x and 1 - x)
+    assert small[0] == pytest.approx(small[1], rel=1e-9) and small[0] > 0
+    assert np.isfinite(gibbs_thomson_shift(DoubleWellModel(lean=0.1, rich=0.9), 300.0, 5.0,
+                                           capillary_length=0.01, dimension=2)[0])
+
+
+def test_bad_arguments_name_the_fix():
+    from phasegauge.errors import OptionError
+
+    mesh = grid_mesh((4, 4))
+    with pytest.raises(OptionError, match="one value per cell"):
+        bulk_compositions(mesh, np.zeros(3), np.zeros(16), width=0.1)
+    with pytest.raises(OptionError, match="width must be > 0"):
+        bulk_compositions(mesh, np.zeros(16), np.zeros(16), width=0.0)
+    with pytest.raises(OptionError, match="receiving"):
+        solute_distribution(mesh, np.zeros(16), np.zeros(16), width=0.1, receiving="up")
+
+
+@pytest.mark.parametrize("drop", ["rich", "lean"])
+def test_gibbs_thomson_shift_against_the_exact_equilibrium_with_laplace_pressure(drop):
+    # Laplace pressure (d - 1) sigma / R adds delta = (d - 1) l / R to both chemical potentials
+    # (over RT) of the phase inside the drop (Porter & Easterling 1992, sec. 1.5; equal molar volumes);
+    # the exact compositions solve ln a_i(inside) + delta = ln a_i(outside) (scipy fsolve)
+    from scipy.optimize import fsolve
+
+    model = RegularSolutionModel(A_a=3.0)
+    t, radius, length = 300.0, 50.0, 0.01
+    delta = 2 * length / radius
+    eq = equilibrium_at(model, t)
+
+    def equations(v):
+        lean, rich = v
+        mu_lean = np.ravel(model.chemical_potentials(np.array([lean]), t))
+        mu_rich = np.ravel(model.chemical_potentials(np.array([rich]), t))
+        return (mu_rich + delta - mu_lean) if drop == "rich" else (mu_lean + delta - mu_rich)
+
+    exact = fsolve(equations, [eq.binodal_lean, eq.binodal_rich], xtol=1e-12)
+    shift = gibbs_thomson_shift(model, t, radius, capillary_length=length, dimension=3, drop=drop)
+    expected = exact - np.array([eq.binodal_lean, eq.binodal_rich])
+    np.testing.assert_allclose(shift, expected, rtol=2e-2)     # linearised: error of order delta
+    assert np.sign(shift[0]) == (1 if drop == "rich" else -1)
+
+
+def test_equilibrium_gap_is_nan_when_a_value_is_missing():
+    assert equilibrium_gap(0.1, 0.9, 0.12, 0.85) == pytest.approx(0.05)
+    assert np.isnan(equilibrium_gap(0.1, float("nan"), 0.12, 0.85))
+    assert np.isnan(equilibrium_gap(0.1, 0.9, float("nan"), float("nan")))
