@@ -35,6 +35,7 @@ class RunSpec:
     phase: str = "upper"
     velocity: str | None = None
     label: str = ""
+    field_location: str = "auto"  # which copy of a field written on cells and on points (auto: cells)
 
 
 @dataclass
@@ -124,7 +125,7 @@ def _compare_runs(first, second, *, out, overwrite, level, time_tolerance, spaci
     runs = []
     for k, spec in enumerate((first, second)):
         options = MeasureOptions(field=spec.field, value_range=spec.value_range, phase=spec.phase, level=level,
-                                 velocity=spec.velocity)
+                                 velocity=spec.velocity, field_location=spec.field_location)
         res = measure(spec.path, options=plan.options(options, k), workers=workers, progress=progress, snapshots=0)
         res.options = options
         runs.append(res)
@@ -196,7 +197,8 @@ def compare_arguments(recipe: dict) -> dict:
     def spec(table):
         t = recipe[table]
         return RunSpec(path=t["path"], field=t["field"], value_range=parse_range(t.get("range", (0, 1))),
-                       phase=t.get("phase", "upper"), velocity=t.get("velocity"), label=t.get("label", table))
+                       phase=t.get("phase", "upper"), velocity=t.get("velocity"), label=t.get("label", table),
+                       field_location=t.get("field_location", "auto"))
 
     c = recipe.get("compare", {})
     run = recipe.get("run", {})

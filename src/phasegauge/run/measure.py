@@ -149,7 +149,7 @@ def measure(path, field: str | None = None, *, options: MeasureOptions | None = 
     path = os.fspath(path)
     with warnings.catch_warnings(record=True) as caught:
         warnings.simplefilter("always")
-        series = Series(path, mesh_pool=mesh_pool)
+        series = Series(path, mesh_pool=mesh_pool, sort_by_time=options.sort_by_time)
     notes = _records(caught)
     try:
         problem = series.time_problem()
