@@ -36,6 +36,7 @@ class RunSpec:
     velocity: str | None = None
     label: str = ""
     field_location: str = "auto"  # which copy of a field written on cells and on points (auto: cells)
+    sort_by_time: bool = False  # order the steps by the times in their files
 
 
 @dataclass
@@ -119,13 +120,15 @@ def _compare_runs(first, second, *, out, overwrite, level, time_tolerance, spaci
     def open_both():
         with warnings.catch_warnings():  # each measure run reports its series' warnings
             warnings.simplefilter("ignore", PhasegaugeWarning)
-            return Series(first.path), Series(second.path)
+            return (Series(first.path, sort_by_time=first.sort_by_time),
+                    Series(second.path, sort_by_time=second.sort_by_time))
 
     plan = plan_sampling(*open_both(), spacing=spacing, time_tolerance=time_tolerance)  # (closes them)
     runs = []
     for k, spec in enumerate((first, second)):
         options = MeasureOptions(field=spec.field, value_range=spec.value_range, phase=spec.phase, level=level,
-                                 velocity=spec.velocity, field_location=spec.field_location)
+                                 velocity=spec.velocity, field_location=spec.field_location,
+                                 sort_by_time=spec.sort_by_time)
         res = measure(spec.path, options=plan.options(options, k), workers=workers, progress=progress, snapshots=0)
         res.options = options
         runs.append(res)
@@ -198,7 +201,7 @@ def compare_arguments(recipe: dict) -> dict:
         t = recipe[table]
         return RunSpec(path=t["path"], field=t["field"], value_range=parse_range(t.get("range", (0, 1))),
                        phase=t.get("phase", "upper"), velocity=t.get("velocity"), label=t.get("label", table),
-                       field_location=t.get("field_location", "auto"))
+                       field_location=t.get("field_location", "auto"), sort_by_time=t.get("sort_by_time", False))
 
     c = recipe.get("compare", {})
     run = recipe.get("run", {})
