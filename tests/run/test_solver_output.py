@@ -159,3 +159,40 @@ def test_compare_reads_the_copy_and_order_each_run_asks_for(tank, tmp_path):
     assert result.second.steps["phase_volume"][0] == pytest.approx(np.sum(corner_mean * volume), rel=1e-12)
     assert result.second.steps["time"].tolist() == [0.0, 0.2, 0.3, 0.4, 0.5]
     assert len(result.pairs) == 1  # only time 0 is shared by both runs
+
+
+def _vtu_with_trailing_time(path, mesh, time):
+    """A VTU file whose TimeValue comes after its piece, where only a full read finds it in a large file."""
+    import warnings
+
+    with warnings.catch_warnings():
+        warnings.simplefilter("ignore")  # meshio: ASCII VTU is meant for debugging
+        pg.meshgen.to_meshio(mesh, None, {"c": np.zeros(mesh.n_cells)}).write(path, binary=False)
+    text = open(path).read().replace(
+        "</UnstructuredGrid>", '<FieldData><DataArray type="Float64" Name="TimeValue" NumberOfTuples="1" '
+        f'format="ascii">{time}</DataArray></FieldData></UnstructuredGrid>')
+    open(path, "w").write(text)
+
+
+def test_times_found_only_by_reading_the_files_are_checked_too(tmp_path):
+    # regression: discovery saw no time (the head of a large file holds none), so the step index was
+    # used, the files' own times replaced it while the steps were read, and measure wrote drift and
+    # tracking over steps out of order without a word
+    from phasegauge.io import Series
+    from phasegauge.meshgen import grid_mesh
+
+    big = grid_mesh((80, 80), kind="quad")
+    for k, t in enumerate([0.0, 0.2, 0.1]):
+        _vtu_with_trailing_time(tmp_path / f"s_{k}.vtu", big, t)
+    assert os.path.getsize(tmp_path / "s_0.vtu") > 1 << 16
+    assert Series(tmp_path).time_origins == ["index"]  # nothing seen before reading
+    assert float(meshio.read(tmp_path / "s_2.vtu").field_data["TimeValue"][0]) == 0.1  # meshio finds it
+    with pytest.raises(SeriesError, match="times do not increase: step 2 has time 0.1 after 0.2") as err:
+        pg.measure(tmp_path, "c", analyses=("conservation",))
+    assert str(tmp_path / "s_2.vtu") + ", step 2" in err.value.where
+    # in a small file the time after the piece lies in the head and is seen at once
+    small = grid_mesh((3, 3), kind="quad")
+    for k, t in enumerate([0.0, 0.2, 0.1]):
+        _vtu_with_trailing_time(tmp_path / f"small_{k}.vtu", small, t)
+    series = Series(str(tmp_path / "small_*.vtu"))
+    assert series.times.tolist() == [0.0, 0.2, 0.1] and series.time_problem() is not None

@@ -198,6 +198,7 @@ def _measure(series, options, out, txn, *, workers, scheduler, overwrite, resume
     bar = Progress(n, "steps", enabled=progress)
     results = run_steps(runner, range(n), workers=workers, scheduler=scheduler, feed=feed, progress=bar)
     bar.close()
+    _check_read_times(results, options)
     result = assemble(series, results, options, notes=notes, feed=feed, mesh_pool=runner.mesh_pool)
     if out is not None:
         from ..report import write_measure_report
@@ -206,6 +207,28 @@ def _measure(series, options, out, txn, *, workers, scheduler, overwrite, resume
         write_measure_report(out, result, **measure_report_data(series, result), started=started,
                              execution={"workers": workers, "scheduler": scheduler, "resume": resume})
     return result
+
+
+def _check_read_times(results, options) -> None:
+    """Refuse step times that do not increase once the steps are read.
+
+    Discovery checks the times it can see cheaply; a time found only by reading
+    the whole file (a step that had none before) is checked here, so a run never
+    writes drift, tracking or the audit over steps out of order.
+    """
+    from ..errors import SeriesError
+
+    done = [r for r in results if r.skipped is None and np.isfinite(r.time)]
+    for before, after in zip(done[:-1], done[1:]):
+        if after.time <= before.time:
+            fix = ("remove the repeated step" if after.time == before.time else
+                   "rename the files so their names sort like their times, give a 'time,path' listing, or order "
+                   "the steps by their file times with --sort-by-time (recipe: sort_by_time = true)")
+            if options.sort_by_time:
+                fix = "some times were found only by reading the files: give a 'time,path' listing"
+            raise SeriesError(f"times do not increase: step {after.index} has time {after.time:g} after "
+                              f"{before.time:g} at step {before.index} ({before.path})",
+                              where=f"{after.path}, step {after.index}", fix=fix)
 
 
 def snapshot_steps(n: int, count: int = 4) -> set:
