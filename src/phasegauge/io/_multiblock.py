@@ -99,9 +99,8 @@ def read_multiblock(path: str):
     every block holds it with the same components. The field data (the stored
     time) is the first block's.
     """
-    import meshio
-
     from ._formats import read_mesh_file
+    from ._meshio_adapter import new_mesh
 
     blocks = multiblock_blocks(path)
     pieces = [read_mesh_file(_volume_file(path, file)) for _, file in blocks.volume]
@@ -116,8 +115,8 @@ def read_multiblock(path: str):
                   for name in pieces[0].point_data if _shared(pieces, "point_data", name)}
     cell_data = {name: [np.asarray(a) for p in pieces for a in p.cell_data[name]]
                  for name in pieces[0].cell_data if _shared(pieces, "cell_data", name)}
-    return meshio.Mesh(np.concatenate(points), cells, point_data=point_data, cell_data=cell_data,
-                       field_data=dict(pieces[0].field_data or {}))
+    return new_mesh(np.concatenate(points), cells, point_data=point_data, cell_data=cell_data,
+                    field_data=dict(pieces[0].field_data or {}))
 
 
 def _shared(pieces, kind: str, name: str) -> bool:
