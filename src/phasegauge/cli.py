@@ -317,21 +317,23 @@ def samples(directory, only, overwrite):
 @click.option("--field-location", type=click.Choice(["cell", "point"]), default=None,
               help="Which copy of a field written on cells and on points to read, in both runs "
                    "(default: the cell copy).")
+@click.option("--sort-by-time", is_flag=True,
+              help="Order each run's steps by the times stored in their files, not by their names.")
 @click.option("--out", "-o", "out", required=True, help="Output folder.")
 @click.option("--overwrite", is_flag=True, help="Replace an existing output folder.")
 @click.option("--workers", "-j", type=int, default=1, show_default=True, help="Local worker processes.")
 @click.option("--quiet", "-q", is_flag=True, help="No progress display.")
 def compare(path_a, path_b, field_a, field_b, range_a, range_b, phase_a, phase_b, velocity_a, velocity_b,
-            label_a, label_b, level, time_tolerance, spacing, rising_bubble, reference_table, field_location, out,
-            overwrite, workers, quiet):
+            label_a, label_b, level, time_tolerance, spacing, rising_bubble, reference_table, field_location,
+            sort_by_time, out, overwrite, workers, quiet):
     """Compare two runs of the same case (for example diffuse versus sharp interface)."""
     from .run.compare import RunSpec, compare_runs
     from .model.indicator import parse_range
     from .report._files import output_transaction
 
     where = field_location or "auto"
-    first = RunSpec(path_a, field_a, parse_range(range_a), phase_a, velocity_a, label_a, where)
-    second = RunSpec(path_b, field_b, parse_range(range_b), phase_b, velocity_b, label_b, where)
+    first = RunSpec(path_a, field_a, parse_range(range_a), phase_a, velocity_a, label_a, where, sort_by_time)
+    second = RunSpec(path_b, field_b, parse_range(range_b), phase_b, velocity_b, label_b, where, sort_by_time)
     with output_transaction(out):
         result = compare_runs(first, second, out=out, overwrite=overwrite, level=level,
                               time_tolerance=time_tolerance, spacing=spacing, reference_table=reference_table,

@@ -196,3 +196,12 @@ def test_times_found_only_by_reading_the_files_are_checked_too(tmp_path):
         _vtu_with_trailing_time(tmp_path / f"small_{k}.vtu", small, t)
     series = Series(str(tmp_path / "small_*.vtu"))
     assert series.times.tolist() == [0.0, 0.2, 0.1] and series.time_problem() is not None
+
+
+def test_cli_compare_takes_the_field_location_and_the_order(tank, tmp_path):
+    write_vof_tank(tmp_path / "scrambled", times=[0.0, 0.3, 0.2, 0.4, 0.5])
+    res = CliRunner().invoke(main, ["compare", str(tank), str(tmp_path / "scrambled"), "--field-a", "alpha",
+                                    "--field-b", "alpha", "--field-location", "point", "--sort-by-time",
+                                    "--time-tolerance", "1e-9", "-o", str(tmp_path / "o"), "-q"])
+    assert res.exit_code == 0, res.output + res.stderr
+    assert (tmp_path / "o" / "report.html").exists()
