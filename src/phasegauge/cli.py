@@ -232,6 +232,8 @@ def _summary(result, out, quiet):
         return
     n = len(result.steps)
     click.echo(f"measured {n} step{'s' if n != 1 else ''}; report: {os.path.join(out, 'report.html')}")
+    for line in getattr(result, "reading", ()):
+        click.echo(f"  {line}")
     for flag in result.flags:
         click.echo(f"  flag: {flag}")
 

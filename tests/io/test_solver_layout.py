@@ -156,7 +156,7 @@ def test_inspect_reads_the_folder_and_names_the_patches_left_out(tank):
     assert desc["steps"] == len(STEPS) and desc["kind"] == "folder"
     assert desc["left_out_blocks"] == ["walls", "top"]
     assert set(desc["field_copies"]) == {"alpha", "U"}
-    assert "cell data, the solver's own values" in desc["field_copies"]["alpha"]
+    assert "measure reads the cell copy, the solver's own values" in desc["field_copies"]["alpha"]
     text = format_description(desc)
     assert "holds no mesh files" not in text
     assert "left out    blocks walls, top" in text

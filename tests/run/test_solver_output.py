@@ -205,3 +205,11 @@ def test_cli_compare_takes_the_field_location_and_the_order(tank, tmp_path):
                                     "--time-tolerance", "1e-9", "-o", str(tmp_path / "o"), "-q"])
     assert res.exit_code == 0, res.output + res.stderr
     assert (tmp_path / "o" / "report.html").exists()
+
+
+def test_measure_says_what_it_read_in_info_lines(tank, tmp_path):
+    res = CliRunner().invoke(main, ["measure", str(tank), "-f", "alpha", "--analyses", "conservation",
+                                    "-o", str(tmp_path / "o")])
+    assert res.exit_code == 0, res.output
+    assert "read 'alpha': cell data, the solver's own values" in res.stdout
+    assert "multiblock blocks left out: walls, top" in res.stdout

@@ -156,12 +156,12 @@ def _describe(series, scan: str) -> dict:
 
 def _field_copies(stats: dict) -> dict:
     """Fields on cells and on points under one name -> which copy measure reads, in words."""
-    from ..model.indicator import field_source
-
     on = {}
     for entry in stats.values():
         on.setdefault(entry["name"], set()).add(entry["location"])
-    return {name: field_source(name, "cell", ("cell", "point")) for name in sorted(on) if len(on[name]) == 2}
+    return {name: (f"'{name}' is written on cells and on points under one name: measure reads the cell "
+                   "copy, the solver's own values")
+            for name in sorted(on) if len(on[name]) == 2}
 
 
 def _left_out_blocks(path: str) -> list:
@@ -237,7 +237,7 @@ def format_description(desc: dict) -> str:
         lines.append(f"  {f['name']:<16} on {f['location']}s, {f['components']} component"
                      f"{'s' if f['components'] != 1 else ''}, {rng}{bad}")
     for name, text in desc.get("field_copies", {}).items():
-        lines.append(f"  read      {text}; --field-location point reads the point copy")
+        lines.append(f"  note      {text} (for the measured field --field-location point reads the point copy)")
     if desc.get("left_out_blocks"):
         lines.append("left out    blocks " + ", ".join(desc["left_out_blocks"])
                      + " of the multiblock files (boundary patches and other polygon data; the volume blocks are read)")

@@ -57,6 +57,9 @@ class MeasureResult:
         Warnings of the run, each once (repeats over steps collapsed).
     findings : list of Finding
         The findings as records (kind, severity, text, figures), in the order of ``flags``.
+    reading : list of str
+        What was read, one line each: which copy of a field written on cells and on
+        points, and the blocks of multiblock files left out.
     mesh : Mesh or MeshOutline
         The last analysed step's mesh, for drawing: the Mesh when this process
         kept it, else its :class:`~phasegauge.model.outline.MeshOutline` (bounds,
@@ -75,6 +78,7 @@ class MeasureResult:
     mesh: object = field(default=None, repr=False)  # mesh (or outline) of the last step, for drawing
     warnings: list = field(default_factory=list)
     findings: list = field(default_factory=list, repr=False)
+    reading: list = field(default_factory=list)  # what was read: the field's copy, blocks left out (info lines)
 
 
 def measure(path, field: str | None = None, *, options: MeasureOptions | None = None, out=None,
@@ -200,6 +204,7 @@ def _measure(series, options, out, txn, *, workers, scheduler, overwrite, resume
     bar.close()
     _check_read_times(results, options)
     result = assemble(series, results, options, notes=notes, feed=feed, mesh_pool=runner.mesh_pool)
+    result.reading = _reading(series, results)
     if out is not None:
         from ..report import write_measure_report
         from ._report_data import measure_report_data
@@ -207,6 +212,20 @@ def _measure(series, options, out, txn, *, workers, scheduler, overwrite, resume
         write_measure_report(out, result, **measure_report_data(series, result), started=started,
                              execution={"workers": workers, "scheduler": scheduler, "resume": resume})
     return result
+
+
+def _reading(series, results) -> list:
+    """Info lines on what the run read: a field's copy when it has two, multiblock blocks left out."""
+    from ._report_data import series_record
+
+    lines = []
+    sources = [r.field_source for r in results if getattr(r, "field_source", "") and r.skipped is None]
+    if sources and "exists too" in sources[0]:
+        lines.append(f"read {sources[0]}")
+    left_out = series_record(series).get("blocks_left_out")
+    if left_out:
+        lines.append(f"multiblock blocks left out: {left_out}")
+    return lines
 
 
 def _check_read_times(results, options) -> None:
