@@ -189,3 +189,9 @@ def test_sort_by_time_orders_by_the_file_times_with_a_warning(tmp_path):
     # reference: pyvista's stored time of the file each step reads
     for s in series.steps:
         assert _vtk_time(s.path.replace(".vtm", os.sep + "internal.vtu")) == s.time
+
+
+def test_steps_sharing_a_file_name_are_named_by_their_folder_in_messages(tank):
+    series = Series(str(tank / "tank_*" / "internal.vtu"))
+    assert [s.where for s in series.steps] == [f"tank_{n}/internal.vtu, step {k}" for k, n in enumerate(STEPS)]
+    assert Series(tank).steps[2].where == "tank_114.vtm, step 2"  # distinct names stay short

@@ -213,3 +213,23 @@ def test_measure_says_what_it_read_in_info_lines(tank, tmp_path):
     assert res.exit_code == 0, res.output
     assert "read 'alpha': cell data, the solver's own values" in res.stdout
     assert "multiblock blocks left out: walls, top" in res.stdout
+
+
+def test_resume_sees_a_rewritten_volume_block_behind_an_unchanged_vtm(tmp_path):
+    # regression: the resume cache keyed a .vtm step by the .vtm file alone, which does not change when
+    # the converter rewrites the step's internal mesh; reference: numpy's sums over the new files
+    from phasegauge.samples._vof_tank import TankCase
+
+    case, out = tmp_path / "case", tmp_path / "out"
+    write_vof_tank(case)
+    vtm = (case / "tank_12.vtm").read_text()
+    pg.measure(case, "alpha", out=out, analyses=("conservation",))
+    manifest = json.loads((out / "manifest.json").read_text())
+    listed = [os.path.relpath(f["path"], case) for f in manifest["inputs"]]
+    assert listed[:2] == ["tank_0.vtm", os.path.join("tank_0", "internal.vtu")]
+    write_vof_tank(case, case=TankCase(fill=0.25))
+    assert (case / "tank_12.vtm").read_text() == vtm
+    result = pg.measure(case, "alpha", out=out, analyses=("conservation",), resume=True)
+    for k, n in enumerate(STEPS):
+        volume, alpha_cell, _, _ = _reference(case, n)
+        assert result.steps["phase_volume"][k] == pytest.approx(np.sum(alpha_cell * volume), rel=1e-12)

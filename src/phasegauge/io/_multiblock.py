@@ -22,7 +22,8 @@ import numpy as np
 from ..errors import InputFileNotFound, UnreadableFileError
 from ._formats import register_format
 
-__all__ = ["FORMATS", "MultiblockBlocks", "multiblock_blocks", "read_multiblock", "peek_multiblock_time"]
+__all__ = ["FORMATS", "MultiblockBlocks", "multiblock_blocks", "multiblock_data_files", "read_multiblock",
+           "peek_multiblock_time"]
 
 #: suffixes of the blocks read as volume pieces
 VOLUME_SUFFIXES = (".vtu", ".vti", ".vtr", ".vts")
@@ -82,6 +83,18 @@ def multiblock_blocks(path: str) -> MultiblockBlocks:
                                   f"blocks there: {names}", where=path,
                                   fix="give the file of the volume mesh itself")
     return MultiblockBlocks(tuple(volume), tuple(left_out))
+
+
+def multiblock_data_files(path) -> list:
+    """The volume block files a multiblock file names (the data a step reads), as paths; [] when unreadable.
+
+    The resume cache stamps them and the manifest lists them with their hashes: rewriting a
+    step's internal mesh leaves its ``.vtm`` file unchanged.
+    """
+    try:
+        return [file for _, file in multiblock_blocks(os.fspath(path)).volume]
+    except UnreadableFileError:
+        return []
 
 
 def _volume_file(path: str, block: str) -> str:

@@ -23,6 +23,7 @@ that do not increase, and a run refuses them.
 
 from __future__ import annotations
 
+import dataclasses
 import glob as globmod
 import os
 import re
@@ -77,6 +78,9 @@ class StepInfo:
         The file holding the step.
     grid : int or None
         Index of the grid in an XDMF temporal collection.
+    name : str
+        How messages name the file: its base name, or its path from the series'
+        folder when steps share a base name (``run_114/internal.vtu``).
     """
 
     index: int
@@ -84,10 +88,11 @@ class StepInfo:
     time_origin: str
     path: str
     grid: int | None = None
+    name: str = ""
 
     @property
     def where(self) -> str:
-        name = os.path.basename(self.path)
+        name = self.name or os.path.basename(self.path)
         return f"{name}, step {self.index}"
 
 
@@ -283,19 +288,20 @@ class Series:
 
     def _from_files(self, files: list[str]) -> list[StepInfo]:
         steps = []
+        names = _message_names(files)
         for i, f in enumerate(files):
             t = peek_time(f)
             if t is TIME_NEEDS_FULL_READ:
                 try:
                     raw = read_mesh_file(f)
                 except PhasegaugeError:  # an unreadable step: its time is unknown; reading it fails later
-                    steps.append(StepInfo(i, float("nan"), "unknown", f))
+                    steps.append(StepInfo(i, float("nan"), "unknown", f, name=names[i]))
                     continue
                 t = _time_from_field_data(raw.field_data)
             if t is None:
-                steps.append(StepInfo(i, float(i), "index", f))
+                steps.append(StepInfo(i, float(i), "index", f, name=names[i]))
             else:
-                steps.append(StepInfo(i, float(t), "file", f))
+                steps.append(StepInfo(i, float(t), "file", f, name=names[i]))
         return steps
 
     # ------------------------------------------------------------------ access
@@ -372,7 +378,7 @@ class Series:
             if info.time_origin == "index":
                 t = _time_from_field_data(fields.field_data)
                 if t is not None:
-                    info = StepInfo(info.index, t, "file", info.path)
+                    info = dataclasses.replace(info, time=t, time_origin="file")
                     self.steps[index] = info
         self.mesh_pool.add(mesh)
         return Step(info, mesh, fields)
@@ -476,7 +482,19 @@ def _sorted_by_time(steps: list, where: str) -> list:
     warnings.warn(SeriesWarning("the steps are ordered by the times in their files, not by their names "
                                 f"(the first moved: {moved[int(np.flatnonzero(order != np.arange(len(steps)))[0])].path})",
                                 where=where), stacklevel=3)
-    return [StepInfo(k, s.time, s.time_origin, s.path, s.grid) for k, s in enumerate(moved)]
+    return [dataclasses.replace(s, index=k) for k, s in enumerate(moved)]
+
+
+def _message_names(files: list) -> list:
+    """How messages name each file: the base name, or the path from the common folder when base names repeat."""
+    bases = [os.path.basename(f) for f in files]
+    if len(set(bases)) == len(bases) or len(files) < 2:
+        return [""] * len(files)
+    try:
+        common = os.path.commonpath([os.path.abspath(f) for f in files])
+    except ValueError:  # different drives
+        return [""] * len(files)
+    return [os.path.relpath(os.path.abspath(f), common) for f in files]
 
 
 def open_series(path, *, mesh_pool: MeshPool | None = None, sort_by_time: bool = False) -> Series:
