@@ -233,3 +233,12 @@ def test_resume_sees_a_rewritten_volume_block_behind_an_unchanged_vtm(tmp_path):
     for k, n in enumerate(STEPS):
         volume, alpha_cell, _, _ = _reference(case, n)
         assert result.steps["phase_volume"][k] == pytest.approx(np.sum(alpha_cell * volume), rel=1e-12)
+
+
+@pytest.mark.filterwarnings("ignore:.*ordered by the times in their files")
+def test_local_workers_follow_the_time_order(tmp_path):
+    write_vof_tank(tmp_path, times=[0.0, 0.3, 0.2, 0.4, 0.5])
+    serial = pg.measure(tmp_path, "alpha", sort_by_time=True, analyses=("conservation", "droplets"))
+    forked = pg.measure(tmp_path, "alpha", sort_by_time=True, analyses=("conservation", "droplets"), workers=2)
+    assert serial.steps.equals(forked.steps)
+    assert serial.steps["time"].tolist() == [0.0, 0.2, 0.3, 0.4, 0.5]
