@@ -479,8 +479,9 @@ def _sorted_by_time(steps: list, where: str) -> list:
     if np.array_equal(order, np.arange(len(steps))):
         return steps
     moved = [steps[i] for i in order]
+    first = int(np.flatnonzero(order != np.arange(len(steps)))[0])
     warnings.warn(SeriesWarning("the steps are ordered by the times in their files, not by their names "
-                                f"(the first moved: {moved[int(np.flatnonzero(order != np.arange(len(steps)))[0])].path})",
+                                f"(the first out of name order: {moved[first].path}, now step {first})",
                                 where=where), stacklevel=3)
     return [dataclasses.replace(s, index=k) for k, s in enumerate(moved)]
 
