@@ -113,7 +113,9 @@ def main(ctx, debug):
 @click.option("--scan", type=click.Choice(["auto", "all", "first"]), default="auto", show_default=True,
               help="Which steps the field statistics come from (auto: all steps of a small series, "
                    "first and last of a large one).")
-def inspect(path, as_json, scan):
+@click.option("--sort-by-time", is_flag=True,
+              help="Order the steps by the times stored in their files, not by their names.")
+def inspect(path, as_json, scan, sort_by_time):
     """Describe a series: steps, times, mesh and fields.
 
     PATH is a mesh file (.vtu, .vtk, .xdmf), an XDMF time series, a folder of
@@ -121,7 +123,7 @@ def inspect(path, as_json, scan):
     """
     from .io.describe import describe_series, format_description
 
-    desc = describe_series(path, scan=scan)
+    desc = describe_series(path, scan=scan, sort_by_time=sort_by_time)
     if as_json:
         from .report._files import strict_json
 
@@ -171,6 +173,9 @@ _measure_options = (
     click.option("--level", type=float, default=0.5, show_default=True,
                  help="Indicator level of the interface and of droplets."),
     click.option("--velocity", default=None, help="Velocity field (droplet velocities, tracking, flow-weighted sections)."),
+    click.option("--field-location", type=click.Choice(["cell", "point"]), default=None,
+                 help="Which copy of a field written on cells and on points under one name to read "
+                      "(default: the cell copy, the solver's own values)."),
 )
 
 
@@ -214,8 +219,12 @@ def _add(options):
 @click.option("--strict", is_flag=True, help="Stop at a bad step instead of skipping it.")
 @click.option("--no-contours", is_flag=True, help="Do not write the interface geometry of every step.")
 @click.option("--snapshots", type=int, default=4, show_default=True, help="Steps whose interface the report draws.")
+@click.option("--sort-by-time", is_flag=True,
+              help="Order the steps by the times stored in their files, not by their names (default: refuse "
+                   "a series whose times do not increase).")
 @click.option("--quiet", "-q", is_flag=True, help="No progress display.")
-def measure(path, field, value_range, phase, level, velocity, out, analyses, adjacency, periodic,
+def measure(path, field, value_range, phase, level, velocity, field_location, sort_by_time, out, analyses,
+            adjacency, periodic,
             ignore_remerge, densities, diffusivity, box, section_axis, section_count, section_at,
             mixing_target, segregation_scale, drift_tolerance, workers, scheduler, resume, overwrite, strict, no_contours,
             snapshots, quiet):
@@ -235,7 +244,8 @@ def measure(path, field, value_range, phase, level, velocity, out, analyses, adj
         diffusivity=diffusivity, box=_box(box), section_axis=section_axis, section_count=section_count,
         section_positions=_floats(section_at, "--section-at"), mixing_target=mixing_target,
         segregation_scale=segregation_scale,
-        drift_tolerance=drift_tolerance, strict=strict)
+        drift_tolerance=drift_tolerance, strict=strict, field_location=field_location or "auto",
+        sort_by_time=sort_by_time)
     result = run_measure(path, options=options, out=out, workers=workers, scheduler=scheduler,
                          overwrite=overwrite, resume=resume, progress=None if not quiet else False,
                          write_contours=not no_contours, snapshots=snapshots)
@@ -254,6 +264,8 @@ def _summary(result, out, quiet):
         click.echo(f"every step was finished before, nothing was computed again; the tables and report were "
                    f"written from the {n} cached step{'s' if n != 1 else ''}")
     click.echo(f"measured {n} step{'s' if n != 1 else ''}; report: {os.path.join(out, 'report.html')}")
+    for line in getattr(result, "reading", ()):
+        click.echo(f"  {line}")
     for flag in result.flags:
         click.echo(f"  flag: {flag}")
 
@@ -396,20 +408,26 @@ def samples(directory, only, overwrite):
               help="Check the first run against the rising-bubble benchmark, case 1 (Hysing et al. 2009).")
 @click.option("--reference-table", type=click.Path(dir_okay=False), default=None,
               help="CSV of reference values to check the first run against.")
+@click.option("--field-location", type=click.Choice(["cell", "point"]), default=None,
+              help="Which copy of a field written on cells and on points to read, in both runs "
+                   "(default: the cell copy).")
+@click.option("--sort-by-time", is_flag=True,
+              help="Order each run's steps by the times stored in their files, not by their names.")
 @click.option("--out", "-o", "out", required=True, help="Output folder.")
 @click.option("--overwrite", is_flag=True, help="Replace an existing output folder.")
 @click.option("--workers", "-j", type=int, default=1, show_default=True, help="Local worker processes.")
 @click.option("--quiet", "-q", is_flag=True, help="No progress display.")
 def compare(path_a, path_b, field_a, field_b, range_a, range_b, phase_a, phase_b, velocity_a, velocity_b,
-            label_a, label_b, level, time_tolerance, spacing, rising_bubble, reference_table, out, overwrite,
-            workers, quiet):
+            label_a, label_b, level, time_tolerance, spacing, rising_bubble, reference_table, field_location,
+            sort_by_time, out, overwrite, workers, quiet):
     """Compare two runs of the same case (for example diffuse versus sharp interface)."""
     from .run.compare import RunSpec, compare_runs
     from .model.indicator import parse_range
     from .report._files import output_transaction
 
-    first = RunSpec(path_a, field_a, parse_range(range_a), phase_a, velocity_a, label_a)
-    second = RunSpec(path_b, field_b, parse_range(range_b), phase_b, velocity_b, label_b)
+    where = field_location or "auto"
+    first = RunSpec(path_a, field_a, parse_range(range_a), phase_a, velocity_a, label_a, where, sort_by_time)
+    second = RunSpec(path_b, field_b, parse_range(range_b), phase_b, velocity_b, label_b, where, sort_by_time)
     with output_transaction(out):
         result = compare_runs(first, second, out=out, overwrite=overwrite, level=level,
                               time_tolerance=time_tolerance, spacing=spacing, reference_table=reference_table,

@@ -8,6 +8,8 @@ A measure recipe::
     range = [-1, 1]
     phase = "upper"            # optional
     velocity = "velocity"      # optional
+    field_location = "cell"    # optional: which copy of a field written on cells and points
+    sort_by_time = false       # optional: order the steps by the times in their files
 
     [interface]                # optional tables; leaving a table out keeps the defaults
     level = 0.5
@@ -58,7 +60,8 @@ from .errors import InputFileNotFound, OptionError
 
 __all__ = ["load_recipe", "run_recipe", "RECIPE_SCHEMA", "COMPARE_SCHEMA"]
 
-_INPUT = {"path": str, "field": str, "range": list, "phase": str, "velocity": str, "label": str}
+_INPUT = {"path": str, "field": str, "range": list, "phase": str, "velocity": str, "label": str,
+          "field_location": str, "sort_by_time": bool}
 
 RECIPE_SCHEMA = {
     "input": _INPUT,
@@ -275,7 +278,8 @@ def measure_arguments(recipe: dict) -> dict:
         section_positions=tuple(mix["section_positions"]) if "section_positions" in mix else None,
         mixing_target=mix.get("target", 0.9), segregation_scale=mix.get("segregation_scale", False),
         drift_tolerance=cons.get("drift_tolerance", 1e-3),
-        strict=run.get("strict", False))
+        strict=run.get("strict", False), field_location=inp.get("field_location", "auto"),
+        sort_by_time=inp.get("sort_by_time", False))
     return dict(path=inp["path"], options=options, out=out["folder"], overwrite=out.get("overwrite", False),
                 workers=run.get("workers", 1), scheduler=run.get("scheduler"),
                 write_contours=iface.get("contours", True), snapshots=run.get("snapshots", 4))

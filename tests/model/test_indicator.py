@@ -74,3 +74,32 @@ def test_field_errors_name_the_fix():
     assert ind.point.shape == (m.n_points,)
     with pytest.raises(OptionError, match="phase"):
         make_indicator(m, fields, "p", phase="middle")
+
+
+def test_a_field_on_cells_and_points_reads_the_cell_copy_by_default():
+    # a field written twice under one name (cell values and an interpolated point copy):
+    # integrals must see the solver's cell values; reference: the arrays handed in, compared exactly
+    m = grid_mesh((4, 3), kind="quad")
+    cell = np.linspace(0.0, 1.0, m.n_cells)
+    point = np.full(m.n_points, 0.25)
+    fields = StepFields(point_data={"alpha": point}, cell_data={"alpha": cell})
+    c = make_indicator(m, fields, "alpha")
+    assert c.location == "cell" and c.copies == ("cell", "point")
+    assert np.array_equal(c.cell, cell)
+    assert np.array_equal(c.point, m.cell_to_point(cell))  # contours: the reconstruction from the cells
+    assert "cell data, the solver's own values" in c.source and "point copy exists too" in c.source
+    p = make_indicator(m, fields, "alpha", field_location="point")
+    assert p.location == "point" and np.array_equal(p.point, point)
+    assert np.array_equal(p.cell, m.point_to_cell(point))
+    assert "point data, as chosen" in p.source
+    assert make_indicator(m, fields, "alpha", field_location="cell").location == "cell"
+
+
+def test_field_location_errors_say_where_the_field_is():
+    m = grid_mesh((3, 3), kind="quad")
+    only_points = StepFields(point_data={"c": np.zeros(m.n_points)})
+    with pytest.raises(FieldNotFoundError, match="no cell data here .*on the points only"):
+        make_indicator(m, only_points, "c", field_location="cell")
+    assert make_indicator(m, only_points, "c").source == "'c': point data"
+    with pytest.raises(OptionError, match="field location must be 'cell' or 'point'"):
+        make_indicator(m, only_points, "c", field_location="faces")

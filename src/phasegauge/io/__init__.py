@@ -16,6 +16,7 @@ from ._meshio_adapter import StepFields
 from ._reference_table import read_reference_table
 from ._series import (LISTING_SUFFIXES, Series, Step, StepInfo, natural_key, open_series,
                       read_listing)
+from ._multiblock import multiblock_data_files
 from ._xdmf import xdmf_data_files
 
 #: the suffixes of every readable mesh format (from the format registry)
@@ -27,5 +28,5 @@ read_meshio = read_mesh_file
 __all__ = ["MESH_SUFFIXES", "LISTING_SUFFIXES", "Series", "Step", "StepInfo", "StepFields", "MeshPool",
            "natural_key", "open_series", "read_listing", "read_mesh_file", "read_meshio", "read_contour",
            "write_contour", "FileFormat", "register_format", "formats", "format_for", "xdmf_data_files",
-           "input_files", "file_sha256", "read_reference_table", "read_mixture_model",
+           "multiblock_data_files", "input_files", "file_sha256", "read_reference_table", "read_mixture_model",
            "mixture_model_from_table"]

@@ -21,7 +21,7 @@ __all__ = ["FileFormat", "register_format", "formats", "format_for", "mesh_suffi
            "peek_time", "TIME_NEEDS_FULL_READ"]
 
 #: the modules that declare formats, in the order their suffixes are listed
-FORMAT_MODULES = ("_vtk", "_xdmf")
+FORMAT_MODULES = ("_vtk", "_multiblock", "_xdmf")
 
 
 class _NeedsFullRead:

@@ -21,7 +21,8 @@ def file_sha256(path, chunk: int = 1 << 22) -> str:
 
 
 def input_files(series, known_sha256: dict | None = None) -> list:
-    """Every input file of a series: the step files, the HDF5 files an XDMF collection names, a listing.
+    """Every input file of a series: the step files, the HDF5 files an XDMF collection names, the volume
+    blocks each multiblock (``.vtm``) step names, a listing.
 
     Parameters
     ----------
@@ -34,12 +35,18 @@ def input_files(series, known_sha256: dict | None = None) -> list:
     -------
     list of dict
         ``{"path": absolute path, "bytes": size, "sha256": hex digest}`` for each file that
-        exists, in order: the listing, the step files, the data files.
+        exists, in order: the listing, the step files (each multiblock file followed by its
+        volume blocks), the data files.
     """
+    from ._multiblock import multiblock_data_files
     from ._xdmf import xdmf_data_files
 
     known = known_sha256 or {}
-    files = list(series.files)
+    files = []
+    for f in series.files:
+        files.append(f)
+        if f.lower().endswith(".vtm"):
+            files += multiblock_data_files(f)
     if series.kind == "collection":
         files += xdmf_data_files(series.path)
     if series.kind == "listing":

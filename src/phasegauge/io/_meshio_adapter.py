@@ -27,7 +27,7 @@ from ..errors import (FieldShapeError, InputFileNotFound, MeshWarning, Unreadabl
                       UnsupportedMeshError, short_text)
 from ..model.mesh import Mesh
 
-__all__ = ["StepFields", "read_with_meshio", "XdmfTimeSeries", "mesh_and_fields", "step_fields",
+__all__ = ["StepFields", "read_with_meshio", "new_mesh", "XdmfTimeSeries", "mesh_and_fields", "step_fields",
            "diagnose_read_failure", "hdf5_problem"]
 
 
@@ -88,6 +88,14 @@ def read_with_meshio(path: str, fmt: str, *, fallback=None):
             if raw is not None:
                 return raw
         raise diagnose_read_failure(path, fmt, exc) from None
+
+
+def new_mesh(points, cells, *, point_data=None, cell_data=None, field_data=None):
+    """A meshio mesh built from arrays, for readers that join pieces (``cells``: ``(type, data)`` pairs)."""
+    import meshio
+
+    return meshio.Mesh(points, cells, point_data=point_data or {}, cell_data=cell_data or {},
+                       field_data=field_data or {})
 
 
 def meshio_reader(fmt: str):

@@ -8,13 +8,22 @@ A series path is one of
 * a glob pattern (quoted on the command line): the matching mesh files, natural order;
 * a step listing: a text file of ``time,path`` lines (see :func:`read_listing`).
 
-The time of a step comes from the first of: the XDMF ``Time`` element, a
-one-value ``TimeValue`` array in the file's field data, the listing, the step
-index. :attr:`StepInfo.time_origin` says which.
+The time of a step comes from the first of: the listing (a listing's times
+are used as written; the files' own stored times are not read), the XDMF
+``Time`` element, a one-value ``TimeValue`` array in the file's field data, the
+step index. :attr:`StepInfo.time_origin` says which.
+
+Files of a folder or a glob are taken in natural order on every path component
+(``run_12/internal.vtu`` before ``run_114/internal.vtu``); a folder holding no
+mesh file but step folders (each with one mesh file, as solver converters write
+them) is read one step per folder. ``sort_by_time=True`` orders the steps by
+their files' times instead; otherwise :meth:`Series.time_problem` reports times
+that do not increase, and a run refuses them.
 """
 
 from __future__ import annotations
 
+import dataclasses
 import glob as globmod
 import os
 import re
@@ -40,9 +49,16 @@ TIME_ARRAY_NAMES = ("TimeValue", "TIME", "time", "Time")
 
 
 def natural_key(text: str):
-    """Sort key that orders embedded numbers by value: ``step_2`` before ``step_10``."""
-    parts = re.split(r"(\d+)", os.path.basename(text))
-    return [(0, int(p)) if p.isdigit() else (1, p.lower()) for p in parts] + [(2, text)]
+    """Sort key that orders embedded numbers by value in every path component.
+
+    ``step_2`` comes before ``step_10``, and ``run_12/internal.vtu`` before
+    ``run_114/internal.vtu``: each folder name and the file name are compared
+    in turn, numbers as numbers, letters without case; the whole text breaks ties.
+    """
+    text = os.fspath(text)
+    components = [c for c in re.split(r"[\\/]+", text) if c]
+    return [[(0, int(p)) if p.isdigit() else (1, p.lower()) for p in re.split(r"(\d+)", c) if p]
+            for c in components] + [[(2, text)]]
 
 
 @dataclass(frozen=True)
@@ -62,6 +78,9 @@ class StepInfo:
         The file holding the step.
     grid : int or None
         Index of the grid in an XDMF temporal collection.
+    name : str
+        How messages name the file: its base name, or its path from the series'
+        folder when steps share a base name (``run_114/internal.vtu``).
     """
 
     index: int
@@ -69,10 +88,11 @@ class StepInfo:
     time_origin: str
     path: str
     grid: int | None = None
+    name: str = ""
 
     @property
     def where(self) -> str:
-        name = os.path.basename(self.path)
+        name = self.name or os.path.basename(self.path)
         return f"{name}, step {self.index}"
 
 
@@ -129,7 +149,35 @@ def read_listing(path: str) -> list[tuple[float, str]]:
 
 
 def _is_mesh_file(name: str) -> bool:
-    return format_for(name) is not None
+    return format_for(name) is not None and not os.path.isdir(name)
+
+
+def step_folder_files(path: str) -> list:
+    """The steps of a folder of step folders: the one mesh file in each subfolder, in natural order.
+
+    Converters of finite-volume solvers write a folder per step holding the
+    internal (volume) mesh file, with the boundary patches in a subfolder of
+    their own; only the files directly in each step folder are looked at.
+    Subfolders without a mesh file are passed over.
+
+    Raises
+    ------
+    SeriesError
+        A step folder holding several mesh files (which one is the step is not clear).
+    """
+    files = []
+    for name in sorted(os.listdir(path), key=natural_key):
+        folder = os.path.join(path, name)
+        if not os.path.isdir(folder):
+            continue
+        inside = sorted((f for f in os.listdir(folder) if _is_mesh_file(os.path.join(folder, f))), key=natural_key)
+        if len(inside) > 1:
+            raise SeriesError(f"the step folder '{name}' holds {len(inside)} mesh files ({', '.join(inside[:4])}), "
+                              "so the step is not clear", where=path,
+                              fix=f"give a quoted glob that picks one, such as '{os.path.join(path, '*', inside[0])}'")
+        if inside:
+            files.append(os.path.join(folder, inside[0]))
+    return files
 
 
 class Series:
@@ -143,6 +191,11 @@ class Series:
         Where the meshes read are kept for reuse; give one pool to several
         series (or runs) to share the mesh work between them. Default: a pool
         of this series that keeps the last mesh.
+    sort_by_time : bool
+        Order the steps by the times stored in their files instead of by their
+        names (a stable sort; :class:`SeriesWarning` when it changes the order).
+        Default: the name order, and :meth:`time_problem` reports times that do
+        not increase.
 
     Attributes
     ----------
@@ -163,21 +216,27 @@ class Series:
     once per series while the topology stays the same.
     """
 
-    def __init__(self, path, *, mesh_pool: MeshPool | None = None):
+    def __init__(self, path, *, mesh_pool: MeshPool | None = None, sort_by_time: bool = False):
         self.path = os.fspath(path)
         self.mesh_pool = MeshPool() if mesh_pool is None else mesh_pool
+        self.sort_by_time = bool(sort_by_time)
         self._xdmf_readers: dict = {}
         self.steps = self._discover()
+        if self.sort_by_time:
+            self.steps = _sorted_by_time(self.steps, self.path)
 
     # --------------------------------------------------------------- discovery
     def _discover(self) -> list[StepInfo]:
         path = self.path
         if os.path.isdir(path):
-            files = sorted((os.path.join(path, f) for f in os.listdir(path) if _is_mesh_file(f)),
+            files = sorted((os.path.join(path, f) for f in os.listdir(path) if _is_mesh_file(os.path.join(path, f))),
                            key=natural_key)
             if not files:
-                raise SeriesError(f"the folder holds no mesh files ({suffix_list()})", where=path,
-                                  fix="give a folder of mesh files, a mesh file or a step listing")
+                files = step_folder_files(path)
+            if not files:
+                raise SeriesError(f"the folder holds no mesh files ({suffix_list()}), nor folders of one "
+                                  "mesh file each", where=path,
+                                  fix="give a folder of mesh files or of step folders, a mesh file or a step listing")
             self.kind = "folder"
             steps = self._from_files(files)
             _warn_numbering_gaps(files, path, steps)
@@ -229,19 +288,20 @@ class Series:
 
     def _from_files(self, files: list[str]) -> list[StepInfo]:
         steps = []
+        names = _message_names(files)
         for i, f in enumerate(files):
             t = peek_time(f)
             if t is TIME_NEEDS_FULL_READ:
                 try:
                     raw = read_mesh_file(f)
                 except PhasegaugeError:  # an unreadable step: its time is unknown; reading it fails later
-                    steps.append(StepInfo(i, float("nan"), "unknown", f))
+                    steps.append(StepInfo(i, float("nan"), "unknown", f, name=names[i]))
                     continue
                 t = _time_from_field_data(raw.field_data)
             if t is None:
-                steps.append(StepInfo(i, float(i), "index", f))
+                steps.append(StepInfo(i, float(i), "index", f, name=names[i]))
             else:
-                steps.append(StepInfo(i, float(t), "file", f))
+                steps.append(StepInfo(i, float(t), "file", f, name=names[i]))
         return steps
 
     # ------------------------------------------------------------------ access
@@ -269,11 +329,16 @@ class Series:
                     fix = f"correct the times in {os.path.basename(self.path)} or remove the repeated step"
                 elif self.kind == "collection":
                     fix = "remove the repeated or out-of-order grids (a restart may have written them twice)"
-                else:
-                    fix = ("remove duplicated or out-of-order steps (a restart may have written them twice), "
+                elif after.time == before.time:
+                    fix = ("remove the repeated step (a restart may have written it twice), "
                            "or give a 'time,path' listing")
+                else:
+                    fix = ("rename the files so their names sort like their times, give a 'time,path' listing, "
+                           "or order the steps by their file times with --sort-by-time "
+                           "(recipe: sort_by_time = true)")
                 return SeriesError(f"times do not increase: step {after.index} has time {after.time:g} after "
-                                   f"{before.time:g} at step {before.index}", where=after.where, fix=fix)
+                                   f"{before.time:g} at step {before.index} ({before.path})",
+                                   where=f"{after.path}, step {after.index}", fix=fix)
         return None
 
     @property
@@ -313,7 +378,7 @@ class Series:
             if info.time_origin == "index":
                 t = _time_from_field_data(fields.field_data)
                 if t is not None:
-                    info = StepInfo(info.index, t, "file", info.path)
+                    info = dataclasses.replace(info, time=t, time_origin="file")
                     self.steps[index] = info
         self.mesh_pool.add(mesh)
         return Step(info, mesh, fields)
@@ -405,6 +470,34 @@ def _time_from_field_data(field_data: dict) -> float | None:
     return None
 
 
-def open_series(path, *, mesh_pool: MeshPool | None = None) -> Series:
+def _sorted_by_time(steps: list, where: str) -> list:
+    """The steps in the order of their times (stable; steps of unknown time keep their place)."""
+    times = np.array([s.time for s in steps])
+    known = np.flatnonzero(np.isfinite(times))
+    order = np.arange(len(steps))
+    order[known] = known[np.argsort(times[known], kind="stable")]
+    if np.array_equal(order, np.arange(len(steps))):
+        return steps
+    moved = [steps[i] for i in order]
+    first = int(np.flatnonzero(order != np.arange(len(steps)))[0])
+    warnings.warn(SeriesWarning("the steps are ordered by the times in their files, not by their names "
+                                f"(the first out of name order: {moved[first].path}, now step {first})",
+                                where=where), stacklevel=3)
+    return [dataclasses.replace(s, index=k) for k, s in enumerate(moved)]
+
+
+def _message_names(files: list) -> list:
+    """How messages name each file: the base name, or the path from the common folder when base names repeat."""
+    bases = [os.path.basename(f) for f in files]
+    if len(set(bases)) == len(bases) or len(files) < 2:
+        return [""] * len(files)
+    try:
+        common = os.path.commonpath([os.path.abspath(f) for f in files])
+    except ValueError:  # different drives
+        return [""] * len(files)
+    return [os.path.relpath(os.path.abspath(f), common) for f in files]
+
+
+def open_series(path, *, mesh_pool: MeshPool | None = None, sort_by_time: bool = False) -> Series:
     """Open a series (see :class:`Series`)."""
-    return Series(path, mesh_pool=mesh_pool)
+    return Series(path, mesh_pool=mesh_pool, sort_by_time=sort_by_time)

@@ -44,13 +44,13 @@ def peek_legacy_time(path: str):
 
 
 def peek_xml_time(path: str):
-    """The time in a VTK XML file's ``FieldData`` (before the first piece): a float, None, or
+    """The time in a VTK XML file's ``FieldData`` (VTK's writers put it before the first piece;
+    other writers after it, found when it lies in the file's head): a float, None, or
     :data:`TIME_NEEDS_FULL_READ` when it is stored in binary."""
     with open(path, "rb") as handle:
         head = handle.read(PEEK_BYTES)
     start = head.find(b"<FieldData")
-    piece = head.find(b"<Piece")
-    if start < 0 or (0 <= piece < start):
+    if start < 0:
         return None
     match = re.search(rb'<DataArray[^>]*Name="(TimeValue|TIME|time|Time)"[^>]*>', head[start:])
     if not match:

@@ -21,7 +21,7 @@ __all__ = ["describe_series", "format_description"]
 FULL_SCAN_CELL_STEPS = 5_000_000
 
 
-def describe_series(path, *, scan: str = "auto") -> dict:
+def describe_series(path, *, scan: str = "auto", sort_by_time: bool = False) -> dict:
     """Describe a series.
 
     Parameters
@@ -30,6 +30,8 @@ def describe_series(path, *, scan: str = "auto") -> dict:
     scan : {'auto', 'all', 'first'}
         Which steps field statistics come from: every step, the first, or
         (``auto``) every step of a small series and the first and last of a large one.
+    sort_by_time : bool
+        Order the steps by the times stored in their files (see :class:`Series`).
 
     Returns
     -------
@@ -37,7 +39,10 @@ def describe_series(path, *, scan: str = "auto") -> dict:
         JSON-ready: ``path, kind, steps, times, time_origin, points, cells,
         cell_types, boundary_cell_types, dimension, bounds, cell_size, mesh_changes,
         scanned_steps, fields`` (each field: ``name, location, components, min, max,
-        nonfinite``), ``unreadable_steps`` (one line each) and ``warnings``
+        nonfinite``), ``field_copies`` (the fields written on cells and on points
+        under one name, with the copy measure reads), ``left_out_blocks`` (blocks
+        of multiblock files not read: boundary patches), ``unreadable_steps``
+        (one line each) and ``warnings``
         (one line each, repeats over steps collapsed; also issued as warnings).
         A time that could not be read is None.
 
@@ -49,7 +54,7 @@ def describe_series(path, *, scan: str = "auto") -> dict:
     """
     with warnings.catch_warnings(record=True) as caught:
         warnings.simplefilter("always")
-        series = path if isinstance(path, Series) else Series(path)
+        series = path if isinstance(path, Series) else Series(path, sort_by_time=sort_by_time)
         try:
             desc = _describe(series, scan)
         finally:
@@ -141,10 +146,34 @@ def _describe(series, scan: str) -> dict:
         "mesh_changes": len(meshes) > 1,
         "scanned_steps": scanned,
         "fields": [stats[k] for k in sorted(stats)],
+        "field_copies": _field_copies(stats),
+        "left_out_blocks": _left_out_blocks(first.info.path),
         "unreadable_steps": [err.one_line() for err in errors],
         "_errors": errors,
     }
     return desc
+
+
+def _field_copies(stats: dict) -> dict:
+    """Fields on cells and on points under one name -> which copy measure reads, in words."""
+    on = {}
+    for entry in stats.values():
+        on.setdefault(entry["name"], set()).add(entry["location"])
+    return {name: (f"'{name}' is written on cells and on points under one name: measure reads the cell "
+                   "copy, the solver's own values")
+            for name in sorted(on) if len(on[name]) == 2}
+
+
+def _left_out_blocks(path: str) -> list:
+    """Names of the blocks of a multiblock step file that are not read (boundary patches)."""
+    if not path.lower().endswith(".vtm"):
+        return []
+    from ._multiblock import multiblock_blocks
+
+    try:
+        return multiblock_blocks(path).left_out_names()
+    except InputError:
+        return []
 
 
 def _accumulate(stats: dict, name: str, location: str, values: np.ndarray) -> None:
@@ -207,6 +236,11 @@ def format_description(desc: dict) -> str:
         bad = f", {f['nonfinite']} NaN/Inf" if f["nonfinite"] else ""
         lines.append(f"  {f['name']:<16} on {f['location']}s, {f['components']} component"
                      f"{'s' if f['components'] != 1 else ''}, {rng}{bad}")
+    for name, text in desc.get("field_copies", {}).items():
+        lines.append(f"  note      {text} (for the measured field --field-location point reads the point copy)")
+    if desc.get("left_out_blocks"):
+        lines.append("left out    blocks " + ", ".join(desc["left_out_blocks"])
+                     + " of the multiblock files (boundary patches and other polygon data; the volume blocks are read)")
     return "\n".join(lines)
 
 

@@ -13,6 +13,13 @@ Point and cell values are used consistently by every analysis:
   fit through the cells around each point, limited to their range
   (:meth:`Mesh.cell_to_point`).
 
+A field written twice under one name, on cells and on points (as the VTK
+converters of finite-volume solvers write it), is read from its cell copy by
+default: those are the solver's own values, and the point copy is an
+interpolation that moves volumes, bounds and droplet counts. ``c.point`` is then
+the reconstruction from the cells. ``field_location='point'`` reads the point
+copy instead.
+
 Integrals (volumes, moments) use ``c.cell`` with the cell measures; contours use
 ``c.point``. Values are not clipped: overshoots stay visible to the
 boundedness check. NaN and Inf are counted, reported and left out of integrals.
@@ -26,13 +33,16 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from ..errors import (FieldShapeError, NonFiniteWarning, OptionError,
+from ..errors import (FieldNotFoundError, FieldShapeError, NonFiniteWarning, OptionError,
                       RangeWarning)
 from .fields import named_field
 from .mesh import Mesh
 
 __all__ = ["Indicator", "make_indicator", "map_to_indicator", "parse_range", "normalize_phase",
-           "select_field"]
+           "select_field", "normalize_field_location", "FIELD_LOCATIONS"]
+
+#: where the indicator's field may be read from (``'auto'``: the cell copy when there is one)
+FIELD_LOCATIONS = ("auto", "cell", "point")
 
 _COMPONENT = re.compile(r"^(?P<name>.+)\[(?P<k>\d+)\]$")
 
@@ -55,6 +65,9 @@ class Indicator:
     value_range : tuple of float
         The field values mapped to 0 and 1 (before the phase side is applied).
     phase : {'upper', 'lower'}
+    copies : tuple of str
+        Where the step holds a field of that name (``('cell', 'point')`` when it is
+        written twice); ``location`` is the copy read.
     """
 
     cell: np.ndarray
@@ -64,6 +77,12 @@ class Indicator:
     field: str = ""
     value_range: tuple = (0.0, 1.0)
     phase: str = "upper"
+    copies: tuple = ()
+
+    @property
+    def source(self) -> str:
+        """Which copy of the field was read, in words (for ``inspect``, the report and the manifest)."""
+        return field_source(self.field, self.location, self.copies)
 
     @property
     def valid_cells(self) -> np.ndarray:
@@ -125,7 +144,37 @@ def map_to_indicator(values, value_range=(0.0, 1.0), phase: str = "upper") -> np
     return c
 
 
-def select_field(fields, name: str, *, where: str = "") -> tuple[np.ndarray, str]:
+def normalize_field_location(value) -> str:
+    """Check a field location: ``'auto'`` (None), ``'cell'`` or ``'point'``."""
+    text = "auto" if value is None else str(value).lower()
+    if text not in FIELD_LOCATIONS:
+        raise OptionError(f"field location must be 'cell' or 'point', found {value!r}",
+                          fix="'cell' reads the solver's cell values, 'point' the copy on the points; "
+                              "leave it out to read the cell copy when there is one")
+    return text
+
+
+def field_source(name: str, location: str, copies=()) -> str:
+    """One line saying which copy of field ``name`` is read."""
+    if location == "cell" and "point" in copies:
+        return (f"'{name}': cell data, the solver's own values (a point copy exists too and is left out; "
+                "contours use a reconstruction from the cells)")
+    if location == "point" and "cell" in copies:
+        return (f"'{name}': point data, as chosen (a cell copy with the solver's own values exists too and "
+                "is left out; cell values are the means of the corners)")
+    return f"'{name}': {location} data"
+
+
+def field_copies(fields, name: str) -> tuple:
+    """Where a step holds a field of that name: a subset of ``('cell', 'point')``."""
+    base = name
+    match = _COMPONENT.match(name)
+    if match and name not in fields.point_data and name not in fields.cell_data:
+        base = match.group("name")
+    return tuple(loc for loc, data in (("cell", fields.cell_data), ("point", fields.point_data)) if base in data)
+
+
+def select_field(fields, name: str, *, where: str = "", location: str | None = None) -> tuple[np.ndarray, str]:
     """Find a scalar field by name in a step's fields.
 
     Parameters
@@ -133,6 +182,8 @@ def select_field(fields, name: str, *, where: str = "") -> tuple[np.ndarray, str
     fields : StepFields
     name : str
         Field name; ``NAME[k]`` selects component k of a vector field.
+    location : {'auto', 'cell', 'point'}, optional
+        Which copy to read when the field is on both (``'auto'``, None: the cell copy).
 
     Returns
     -------
@@ -151,7 +202,16 @@ def select_field(fields, name: str, *, where: str = "") -> tuple[np.ndarray, str
     match = _COMPONENT.match(name)
     if match and name not in fields.point_data and name not in fields.cell_data:
         base, component = match.group("name"), int(match.group("k"))
-    values, location = named_field(fields, base, where=where, fix="name one of those fields with --field")
+    wanted = normalize_field_location(location)
+    if wanted != "auto" and (base in fields.point_data or base in fields.cell_data):
+        data = fields.cell_data if wanted == "cell" else fields.point_data
+        if base not in data:
+            other = "point" if wanted == "cell" else "cell"
+            raise FieldNotFoundError(f"field '{base}' has no {wanted} data here (it is on the {other}s only)",
+                                     where=where, fix=f"give --field-location {other}, or leave it out")
+    order = ("point", "cell") if wanted == "point" else ("cell", "point")
+    values, location = named_field(fields, base, where=where, fix="name one of those fields with --field",
+                                   order=order)
     if values.ndim == 2 and values.shape[1] == 1:
         values = values[:, 0]
     if component is not None:
@@ -169,7 +229,7 @@ def select_field(fields, name: str, *, where: str = "") -> tuple[np.ndarray, str
 
 
 def make_indicator(mesh: Mesh, fields, name: str, *, value_range=(0.0, 1.0), phase: str = "upper",
-                   where: str = "", warn: bool = True) -> Indicator:
+                   where: str = "", warn: bool = True, field_location: str | None = None) -> Indicator:
     """Build the indicator of one step.
 
     Parameters
@@ -186,14 +246,24 @@ def make_indicator(mesh: Mesh, fields, name: str, *, value_range=(0.0, 1.0), pha
         File and step, for messages.
     warn : bool
         Emit :class:`RangeWarning` and :class:`NonFiniteWarning`.
+    field_location : {'auto', 'cell', 'point'}, optional
+        Which copy to read when the field is written on cells and on points
+        under one name: ``'auto'`` (None) reads the cell copy, the solver's own
+        values.
 
     Returns
     -------
     Indicator
+
+    Raises
+    ------
+    FieldNotFoundError
+        No such field, or none at the location asked for.
     """
     value_range = parse_range(value_range)
     phase = normalize_phase(phase)
-    values, location = select_field(fields, name, where=where)
+    values, location = select_field(fields, name, where=where, location=field_location)
+    copies = field_copies(fields, name)
     finite = np.isfinite(values)
     nonfinite = int(values.size - np.count_nonzero(finite))
     if warn and nonfinite:
@@ -204,8 +274,8 @@ def make_indicator(mesh: Mesh, fields, name: str, *, value_range=(0.0, 1.0), pha
     c = map_to_indicator(values, value_range, phase)
     c[~finite] = np.nan
     if location == "point":
-        return Indicator(mesh.point_to_cell(c), c, "point", nonfinite, name, value_range, phase)
-    return Indicator(c, mesh.cell_to_point(c), "cell", nonfinite, name, value_range, phase)
+        return Indicator(mesh.point_to_cell(c), c, "point", nonfinite, name, value_range, phase, copies)
+    return Indicator(c, mesh.cell_to_point(c), "cell", nonfinite, name, value_range, phase, copies)
 
 
 def check_range(values: np.ndarray, value_range, *, name: str = "", where: str = "") -> None:

@@ -181,7 +181,11 @@ def _page(result, series, pngs, execution, version) -> Page:
         page.table(result.events)
     page.heading("What was run")
     page.key_values([("series", series["path"]), ("series kind", series["kind"]),
-                     ("time from", series["time_origin"]), ("analyses", ", ".join(opts.analyses)),
+                     ("time from", series["time_origin"]),
+                     ("field read", series.get("field_read", f"'{opts.field}'")),
+                     *[(label, series[key]) for key, label in (("blocks_left_out", "blocks left out"),
+                                                               ("order", "step order")) if key in series],
+                     ("analyses", ", ".join(opts.analyses)),
                      ("interface level", opts.level), ("velocity field", opts.velocity or "none"),
                      ("droplet adjacency", opts.connectivity),
                      ("periodic axes", ", ".join(opts.periodic) or "none"),

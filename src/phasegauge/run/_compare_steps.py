@@ -190,7 +190,7 @@ def _read_pair(row, grids: dict, *, series, specs, spacing):
         spec = specs[run]
         s = series[run].read(step)
         c = make_indicator(s.mesh, s.fields, spec.field, value_range=spec.value_range, phase=spec.phase,
-                           where=s.info.where, warn=False)
+                           where=s.info.where, warn=False, field_location=spec.field_location)
         fields.append((s.mesh, c.point))
     (mesh_a, ca), (mesh_b, cb) = fields
     key = (mesh_a.signature, mesh_b.signature)

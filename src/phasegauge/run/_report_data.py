@@ -32,8 +32,21 @@ def series_record(series) -> dict:
     """Path, kind, number of steps and time origin of a series, as the manifest and page show them."""
     import os
 
-    return {"path": os.path.abspath(series.path), "kind": series.kind, "steps": len(series),
-            "time_origin": "+".join(series.time_origins)}
+    record = {"path": os.path.abspath(series.path), "kind": series.kind, "steps": len(series),
+              "time_origin": "+".join(series.time_origins)}
+    if series.steps and series.steps[0].path.lower().endswith(".vtm"):
+        from ..errors import InputError
+        from ..io._multiblock import multiblock_blocks
+
+        try:
+            left_out = multiblock_blocks(series.steps[0].path).left_out_names()
+        except InputError:
+            left_out = []
+        if left_out:
+            record["blocks_left_out"] = ", ".join(left_out) + " (boundary patches: the volume blocks are read)"
+    if getattr(series, "sort_by_time", False):
+        record["order"] = "by the times in the files (sort_by_time)"
+    return record
 
 
 def series_input_files(series, results=()) -> list:
@@ -85,8 +98,12 @@ def measure_report_data(series, result) -> dict:
     """
     results = list(result.results)
     contours = {r.index: getattr(r, "contour", None) for r in results}
+    record = series_record(series)
+    sources = [r.field_source for r in results if getattr(r, "field_source", "")]
+    if sources:
+        record["field_read"] = sources[0]
     return {
-        "series": series_record(series),
+        "series": record,
         "inputs": series_input_files(series, results),
         "snapshots": interface_snapshots(result.mesh, contours, {r.index: r.time for r in results}),
         "step_warnings": sorted({m for r in results for m in r.messages}),

@@ -120,14 +120,17 @@ class StepCache:
             return False
 
     def _data_stamp(self, info) -> str:
-        """Size and modification time of the HDF5 files an XDMF step reads ('' for other steps)."""
-        if info.grid is None:
+        """Size and modification time of the files a step reads besides its own: the HDF5 files of an
+        XDMF step, the volume blocks of a multiblock (``.vtm``) step ('' for other steps)."""
+        multiblock = info.path.lower().endswith(".vtm")
+        if info.grid is None and not multiblock:
             return ""
-        from ..io import xdmf_data_files
+        from ..io import multiblock_data_files, xdmf_data_files
 
         files = self._data_files.get(info.path)
         if files is None:
-            files = self._data_files[info.path] = xdmf_data_files(info.path)
+            files = self._data_files[info.path] = (multiblock_data_files(info.path) if multiblock
+                                                   else xdmf_data_files(info.path))
         stamps = []
         for full in files:
             try:

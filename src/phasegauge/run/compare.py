@@ -35,6 +35,8 @@ class RunSpec:
     phase: str = "upper"
     velocity: str | None = None
     label: str = ""
+    field_location: str = "auto"  # which copy of a field written on cells and on points (auto: cells)
+    sort_by_time: bool = False  # order the steps by the times in their files
 
 
 @dataclass
@@ -114,7 +116,8 @@ def _compare_runs(first, second, *, out, overwrite, level, time_tolerance, spaci
     def open_both():
         with warnings.catch_warnings():  # each measure run reports its series' warnings
             warnings.simplefilter("ignore", PhasegaugeWarning)
-            return Series(first.path), Series(second.path)
+            return (Series(first.path, sort_by_time=first.sort_by_time),
+                    Series(second.path, sort_by_time=second.sort_by_time))
 
     if out is not None:
         from ..report._files import prepare_output_folder
@@ -128,7 +131,8 @@ def _compare_runs(first, second, *, out, overwrite, level, time_tolerance, spaci
     runs = []
     for k, spec in enumerate((first, second)):
         options = MeasureOptions(field=spec.field, value_range=spec.value_range, phase=spec.phase, level=level,
-                                 velocity=spec.velocity)
+                                 velocity=spec.velocity, field_location=spec.field_location,
+                                 sort_by_time=spec.sort_by_time)
         res = measure(spec.path, options=plan.options(options, k), workers=workers, progress=progress, snapshots=0)
         res.options = options
         runs.append(res)
@@ -199,7 +203,8 @@ def compare_arguments(recipe: dict) -> dict:
     def spec(table):
         t = recipe[table]
         return RunSpec(path=t["path"], field=t["field"], value_range=parse_range(t.get("range", (0, 1))),
-                       phase=t.get("phase", "upper"), velocity=t.get("velocity"), label=t.get("label", table))
+                       phase=t.get("phase", "upper"), velocity=t.get("velocity"), label=t.get("label", table),
+                       field_location=t.get("field_location", "auto"), sort_by_time=t.get("sort_by_time", False))
 
     c = recipe.get("compare", {})
     run = recipe.get("run", {})

@@ -57,6 +57,9 @@ class MeasureResult:
         Warnings of the run, each once (repeats over steps collapsed).
     findings : list of Finding
         The findings as records (kind, severity, text, figures), in the order of ``flags``.
+    reading : list of str
+        What was read, one line each: which copy of a field written on cells and on
+        points, and the blocks of multiblock files left out.
     mesh : Mesh or MeshOutline
         The last analysed step's mesh, for drawing: the Mesh when this process
         kept it, else its :class:`~phasegauge.model.outline.MeshOutline` (bounds,
@@ -75,6 +78,7 @@ class MeasureResult:
     mesh: object = field(default=None, repr=False)  # mesh (or outline) of the last step, for drawing
     warnings: list = field(default_factory=list)
     findings: list = field(default_factory=list, repr=False)
+    reading: list = field(default_factory=list)  # what was read: the field's copy, blocks left out (info lines)
 
 
 def measure(path, field: str | None = None, *, options: MeasureOptions | None = None, out=None,
@@ -150,7 +154,7 @@ def measure(path, field: str | None = None, *, options: MeasureOptions | None = 
     path = os.fspath(path)
     with warnings.catch_warnings(record=True) as caught:
         warnings.simplefilter("always")
-        series = Series(path, mesh_pool=mesh_pool)
+        series = Series(path, mesh_pool=mesh_pool, sort_by_time=options.sort_by_time)
     notes = _records(caught)
     try:
         problem = series.time_problem()
@@ -234,6 +238,7 @@ def _measure(series, options, out, txn, *, workers, scheduler, overwrite, resume
     bar = Progress(n, "steps", enabled=progress)
     results = run_steps(runner, range(n), workers=workers, scheduler=scheduler, feed=feed, progress=bar)
     bar.close()
+    _check_read_times(results, options)
     changed = [path for path, stamp in input_stamps(series).items() if before.get(path) != stamp]
     if changed:
         raise SeriesError(f"{len(changed)} input file{'s' if len(changed) != 1 else ''} changed while the run read "
@@ -241,6 +246,7 @@ def _measure(series, options, out, txn, *, workers, scheduler, overwrite, resume
                           "mix old and new content", where=series.path,
                           fix="run again once the solver has finished writing (--overwrite)")
     result = assemble(series, results, options, notes=notes, feed=feed, mesh_pool=runner.mesh_pool)
+    result.reading = _reading(series, results)
     if out is not None:
         from ..report import write_measure_report
         from ._report_data import measure_report_data
@@ -250,17 +256,55 @@ def _measure(series, options, out, txn, *, workers, scheduler, overwrite, resume
     return result
 
 
+def _reading(series, results) -> list:
+    """Info lines on what the run read: a field's copy when it has two, multiblock blocks left out."""
+    from ._report_data import series_record
+
+    lines = []
+    sources = [r.field_source for r in results if getattr(r, "field_source", "") and r.skipped is None]
+    if sources and "exists too" in sources[0]:
+        lines.append(f"read {sources[0]}")
+    left_out = series_record(series).get("blocks_left_out")
+    if left_out:
+        lines.append(f"multiblock blocks left out: {left_out}")
+    return lines
+
+
+def _check_read_times(results, options) -> None:
+    """Refuse step times that do not increase once the steps are read.
+
+    Discovery checks the times it can see cheaply; a time found only by reading
+    the whole file (a step that had none before) is checked here, so a run never
+    writes drift, tracking or the audit over steps out of order.
+    """
+    from ..errors import SeriesError
+
+    done = [r for r in results if r.skipped is None and np.isfinite(r.time)]
+    for before, after in zip(done[:-1], done[1:]):
+        if after.time <= before.time:
+            fix = ("remove the repeated step" if after.time == before.time else
+                   "rename the files so their names sort like their times, give a 'time,path' listing, or order "
+                   "the steps by their file times with --sort-by-time (recipe: sort_by_time = true)")
+            if options.sort_by_time:
+                fix = "some times were found only by reading the files: give a 'time,path' listing"
+            raise SeriesError(f"times do not increase: step {after.index} has time {after.time:g} after "
+                              f"{before.time:g} at step {before.index} ({before.path})",
+                              where=f"{after.path}, step {after.index}", fix=fix)
+
+
 def input_stamps(series) -> dict:
     """Size and modification time of every file the series reads (step files and HDF5 data files)."""
-    from ..io import xdmf_data_files
+    from ..io import multiblock_data_files, xdmf_data_files
 
     paths = list(series.files)
     for path in series.files:
-        if path.lower().endswith((".xdmf", ".xmf")):
-            try:
+        try:
+            if path.lower().endswith((".xdmf", ".xmf")):
                 paths.extend(xdmf_data_files(path))
-            except Exception:  # an XDMF file that cannot be parsed is reported by its step
-                pass
+            elif path.lower().endswith(".vtm"):
+                paths.extend(multiblock_data_files(path))
+        except Exception:  # a file that cannot be parsed is reported by its step
+            pass
     stamps = {}
     for path in dict.fromkeys(paths):
         try:

@@ -14,7 +14,7 @@ from dataclasses import dataclass
 
 from ..errors import FieldNotFoundError, FieldShapeError, OptionError
 from ..model.axes import AXIS_INDEX
-from ..model.indicator import normalize_phase, parse_range
+from ..model.indicator import normalize_field_location, normalize_phase, parse_range
 
 __all__ = ["MeasureOptions", "ANALYSES", "STEP_COLUMNS", "check_workers", "wrong_field_option"]
 
@@ -72,6 +72,12 @@ class MeasureOptions:
         Relative phase-volume drift that raises a flag in the report.
     strict : bool
         Fail on a bad step instead of skipping it.
+    field_location : {'auto', 'cell', 'point'}
+        Which copy of the field to read when a step holds it on cells and on
+        points under one name (``'auto'``: the cell copy, the solver's values).
+    sort_by_time : bool
+        Order the steps by the times stored in their files instead of by their
+        names (default: refuse a series whose times do not increase).
     """
 
     field: str
@@ -93,9 +99,13 @@ class MeasureOptions:
     segregation_scale: bool = False
     drift_tolerance: float = 1e-3
     strict: bool = False
+    field_location: str = "auto"
+    sort_by_time: bool = False
 
     def __post_init__(self):
         set_ = object.__setattr__
+        set_(self, "field_location", normalize_field_location(self.field_location))
+        set_(self, "sort_by_time", bool(self.sort_by_time))
         if not isinstance(self.field, str) or not self.field:
             raise OptionError("a field name is needed", fix="give --field NAME (see 'phasegauge inspect')")
         set_(self, "value_range", parse_range(self.value_range))

@@ -60,6 +60,7 @@ class StepResult:
     dimension: int = 0
     outline: MeshOutline | None = None
     extra: object = None  # what options.step_extra returned (e.g. c sampled for a comparison)
+    field_source: str = ""  # which copy of the field was read, in words
 
     def labels(self, n_cells: int) -> tuple[np.ndarray, np.ndarray]:
         """Droplet label of every cell (-1: none) and the c dV weights of the labelled cells."""
@@ -136,7 +137,7 @@ def analyse_step(step, options, *, contour_dir: str | None = None, reported_mesh
 
     mesh = step.mesh
     ind = make_indicator(mesh, step.fields, options.field, value_range=options.value_range,
-                         phase=options.phase, where=step.info.where)
+                         phase=options.phase, where=step.info.where, field_location=options.field_location)
     if ind.nonfinite == ind.cell.size or not np.isfinite(ind.cell).any():
         raise InputError(f"field '{options.field}' has no finite values (all NaN or Inf)", where=step.info.where,
                          fix="the solver may have diverged at this step")
@@ -146,6 +147,7 @@ def analyse_step(step, options, *, contour_dir: str | None = None, reported_mesh
                         dimension=int(mesh.dimension),
                         outline=MeshOutline.of(mesh, centroids="droplets" in options.analyses))
     result.extra = options.step_extra(step, ind)
+    result.field_source = ind.source
     m = {"step": step.index, "time": step.time}
     if "conservation" in options.analyses:
         m.update(conservation.conservation_metrics(mesh, ind, densities=options.densities))
@@ -254,7 +256,7 @@ class StepRunner:
 
             with warnings.catch_warnings():
                 warnings.simplefilter("ignore", PhasegaugeWarning)
-                self._series = Series(self.path, mesh_pool=self.mesh_pool)
+                self._series = Series(self.path, mesh_pool=self.mesh_pool, sort_by_time=self.options.sort_by_time)
         return self._series
 
     def close(self) -> None:

@@ -19,6 +19,11 @@ Series (see ``sample_fields/README.md``):
 ``droplets_3d``
     Two droplets pushed together by a straining flow and merging (advective
     Cahn-Hilliard); ``phi`` and ``velocity`` on the points of hexahedra; XDMF.
+
+Not among the shipped series, for tests of reading solver output:
+:func:`write_vof_tank` writes a sloshing tank laid out as a finite-volume
+solver's VTK converter writes it (``.vtm`` files beside step folders, fields on
+cells and on points under one name, times only in the files' field data).
 """
 
 from __future__ import annotations
@@ -32,6 +37,7 @@ from ._droplets3d import DROPLETS_3D, droplets_3d_fields, straining_flow, write_
 from ._filament import FILAMENT, filament_breakup_fields, filament_initial, write_filament_breakup
 from ._finite_volume import advect
 from ._vortex import VORTEX, circle_fraction, vortex_fields, vortex_velocity, write_vortex
+from ._vof_tank import TANK, TankCase, tank_fields, tank_mesh, tank_velocity, write_vof_tank
 
 __all__ = [
     "SAMPLE_NAMES", "write_samples",
@@ -40,6 +46,7 @@ __all__ = [
     "circle_fraction", "channel_concentration", "poiseuille_velocity", "droplets_3d_fields",
     "straining_flow", "cahn_hilliard", "cahn_hilliard_energy", "spectral_grid", "advect",
     "FILAMENT", "VORTEX", "CHANNEL", "DROPLETS_3D",
+    "write_vof_tank", "tank_fields", "tank_mesh", "tank_velocity", "TankCase", "TANK",
 ]
 
 #: the series :func:`write_samples` writes, in order

@@ -1,0 +1,159 @@
+"""VTK XML multiblock files (``.vtm``): the volume blocks of one step, read as one mesh.
+
+A multiblock file is an XML index of other VTK XML files: ``<DataSet file=...>``
+elements, nested in ``<Block>`` elements, with paths relative to the index.
+Converters of finite-volume solvers write one per step, naming the internal
+(volume) mesh and the boundary patches. The volume blocks (unstructured grids,
+image, rectilinear and structured grids: ``.vtu``, ``.vti``, ``.vtr``, ``.vts``)
+are read with their own format's reader and joined into one mesh; polygon-data
+blocks (``.vtp``: boundary patches, surfaces) are left out and named by
+:func:`multiblock_blocks`. The step's time is the one stored in the first
+volume block's field data.
+"""
+
+from __future__ import annotations
+
+import os
+import xml.etree.ElementTree as ET
+from dataclasses import dataclass
+
+import numpy as np
+
+from ..errors import InputFileNotFound, UnreadableFileError
+from ._formats import register_format
+
+__all__ = ["FORMATS", "MultiblockBlocks", "multiblock_blocks", "multiblock_data_files", "read_multiblock",
+           "peek_multiblock_time"]
+
+#: suffixes of the blocks read as volume pieces
+VOLUME_SUFFIXES = (".vtu", ".vti", ".vtr", ".vts")
+
+
+@dataclass(frozen=True)
+class MultiblockBlocks:
+    """The blocks a multiblock file names.
+
+    Attributes
+    ----------
+    volume : tuple of (str, str)
+        ``(block name, file path)`` of the blocks read as the step's mesh.
+    left_out : tuple of (str, str)
+        ``(block name, file path)`` of the blocks left out (boundary patches and
+        other polygon data, or files of another kind).
+    """
+
+    volume: tuple
+    left_out: tuple
+
+    def left_out_names(self) -> list:
+        """The names of the blocks left out (their file's stem when unnamed)."""
+        return [name or os.path.splitext(os.path.basename(path))[0] for name, path in self.left_out]
+
+
+def multiblock_blocks(path: str) -> MultiblockBlocks:
+    """The volume and left-out blocks of a multiblock file, in the file's order.
+
+    Raises
+    ------
+    UnreadableFileError
+        Not a VTK XML multiblock file, or one that names no volume block.
+    """
+    path = os.fspath(path)
+    try:
+        root = ET.parse(path).getroot()
+    except (ET.ParseError, OSError) as exc:
+        raise UnreadableFileError(f"cannot be read as a VTK multiblock file ({exc})", where=path,
+                                  fix="check that the file is complete XML (it may be truncated)") from None
+    if root.tag != "VTKFile" or root.get("type") not in ("vtkMultiBlockDataSet", "vtkMultiPieceDataSet"):
+        raise UnreadableFileError(f"is not a VTK XML multiblock file (its root is <{root.tag} "
+                                  f"type={root.get('type')!r}>)", where=path,
+                                  fix="give a .vtm file written by a VTK writer")
+    folder = os.path.dirname(os.path.abspath(path))
+    volume, left_out = [], []
+    for node in root.iter("DataSet"):
+        name = node.get("file")
+        if not name:
+            continue  # an empty block
+        target = name if os.path.isabs(name) else os.path.join(folder, name)
+        entry = (node.get("name", ""), target)
+        (volume if target.lower().endswith(VOLUME_SUFFIXES) else left_out).append(entry)
+    if not volume:
+        names = ", ".join(n or os.path.basename(p) for n, p in left_out) or "none"
+        raise UnreadableFileError(f"the multiblock file names no volume block (.vtu, .vti, .vtr, .vts); "
+                                  f"blocks there: {names}", where=path,
+                                  fix="give the file of the volume mesh itself")
+    return MultiblockBlocks(tuple(volume), tuple(left_out))
+
+
+def multiblock_data_files(path) -> list:
+    """The volume block files a multiblock file names (the data a step reads), as paths; [] when unreadable.
+
+    The resume cache stamps them and the manifest lists them with their hashes: rewriting a
+    step's internal mesh leaves its ``.vtm`` file unchanged.
+    """
+    try:
+        return [file for _, file in multiblock_blocks(os.fspath(path)).volume]
+    except UnreadableFileError:
+        return []
+
+
+def _volume_file(path: str, block: str) -> str:
+    if not os.path.exists(block):
+        raise InputFileNotFound(f"the block file '{os.path.relpath(block, os.path.dirname(os.path.abspath(path)))}' "
+                                "it names is missing", where=path,
+                                fix="restore the step's folder next to the .vtm file")
+    return block
+
+
+def read_multiblock(path: str):
+    """Read the volume blocks of a multiblock file as one meshio-style mesh.
+
+    Several volume blocks are joined (points numbered on); a field is kept when
+    every block holds it with the same components. The field data (the stored
+    time) is the first block's.
+    """
+    from ._formats import read_mesh_file
+    from ._meshio_adapter import new_mesh
+
+    blocks = multiblock_blocks(path)
+    pieces = [read_mesh_file(_volume_file(path, file)) for _, file in blocks.volume]
+    if len(pieces) == 1:
+        return pieces[0]
+    points, cells, offset = [], [], 0
+    for piece in pieces:
+        points.append(np.asarray(piece.points, dtype=np.float64))
+        cells.extend((b.type, np.asarray(b.data) + offset) for b in piece.cells)
+        offset += len(piece.points)
+    point_data = {name: np.concatenate([np.asarray(p.point_data[name]) for p in pieces])
+                  for name in pieces[0].point_data if _shared(pieces, "point_data", name)}
+    cell_data = {name: [np.asarray(a) for p in pieces for a in p.cell_data[name]]
+                 for name in pieces[0].cell_data if _shared(pieces, "cell_data", name)}
+    return new_mesh(np.concatenate(points), cells, point_data=point_data, cell_data=cell_data,
+                    field_data=dict(pieces[0].field_data or {}))
+
+
+def _shared(pieces, kind: str, name: str) -> bool:
+    """True when every piece holds the field with one shape of component."""
+    shapes = set()
+    for p in pieces:
+        data = getattr(p, kind)
+        if name not in data:
+            return False
+        arrays = data[name] if kind == "cell_data" else [data[name]]
+        shapes.update(np.asarray(a).shape[1:] for a in arrays)
+    return len(shapes) == 1
+
+
+def peek_multiblock_time(path: str):
+    """The time stored in the first volume block (see :func:`phasegauge.io._formats.peek_time`)."""
+    from ._formats import peek_time
+
+    try:
+        blocks = multiblock_blocks(path)
+    except UnreadableFileError:
+        return None
+    first = blocks.volume[0][1]
+    return peek_time(first) if os.path.exists(first) else None
+
+
+FORMATS = (register_format("vtm", (".vtm",), read=read_multiblock, peek_time=peek_multiblock_time),)
