@@ -103,21 +103,20 @@ def _cells(count: int) -> str:
 
 
 def step_velocity(step, options):
-    """Velocity of the step on cells and on points, or (None, None).
+    """Velocity of the step on cells and on points, and where the file has it, or (None, None, None).
 
     Each side is converted only when an analysis of the run uses it: droplets use cell values,
-    the boundary flux and cross sections point values.
+    cross sections point values, the boundary flux the file's own values.
     """
     if options.velocity is None:
-        return None, None
+        return None, None, None
     values, location = vector_field(step.fields, options.velocity, where=step.info.where,
                                     fix="name the velocity field with --velocity, or leave it out")
     mesh = step.mesh
-    need_points = "conservation" in options.analyses or (
-        "mixing" in options.analyses and options.section_axis is not None)
+    need_points = "mixing" in options.analyses and options.section_axis is not None
     if location == "cell":
-        return values, (mesh.cell_to_point(values) if need_points else None)
-    return (mesh.point_to_cell(values) if "droplets" in options.analyses else None), values
+        return values, (mesh.cell_to_point(values) if need_points else None), location
+    return (mesh.point_to_cell(values) if "droplets" in options.analyses else None), values, location
 
 
 def analyse_step(step, options, *, contour_dir: str | None = None, reported_meshes: set | None = None) -> StepResult:
@@ -141,7 +140,7 @@ def analyse_step(step, options, *, contour_dir: str | None = None, reported_mesh
         raise InputError(f"field '{options.field}' has no finite values (all NaN or Inf)", where=step.info.where,
                          fix="the solver may have diverged at this step")
     check_mesh(mesh, step.info.where, reported=reported_meshes)
-    u_cell, u_point = step_velocity(step, options)
+    u_cell, u_point, u_location = step_velocity(step, options)
     result = StepResult(step.index, step.time, step.info.path, mesh_signature=mesh.signature,
                         dimension=int(mesh.dimension),
                         outline=MeshOutline.of(mesh, centroids="droplets" in options.analyses))
@@ -150,8 +149,11 @@ def analyse_step(step, options, *, contour_dir: str | None = None, reported_mesh
     if "conservation" in options.analyses:
         m.update(conservation.conservation_metrics(mesh, ind, densities=options.densities))
         m.update(conservation.boundedness(mesh, ind))
-        if u_point is not None:
-            flux = conservation.open_boundary_flux(mesh, u_point, ind, velocity_location="point")
+        if u_location is not None:
+            # the boundary flux takes the velocity where the file has it: a cell-centred solver's
+            # own cell values on its boundary faces, never values averaged onto wall points
+            flux = conservation.open_boundary_flux(
+                mesh, u_cell if u_location == "cell" else u_point, ind, velocity_location=u_location)
             m.update({k: v for k, v in flux.items() if k != "open_boundary"})
             m["open_boundary"] = bool(flux["open_boundary"])
     contour = extremes = None
