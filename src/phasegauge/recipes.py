@@ -61,7 +61,7 @@ __all__ = ["load_recipe", "run_recipe", "RECIPE_SCHEMA", "COMPARE_SCHEMA"]
 _INPUT = {"path": str, "field": str, "range": list, "phase": str, "velocity": str, "label": str}
 
 RECIPE_SCHEMA = {
-    "input": _INPUT,
+    "input": {**_INPUT, "keep_3d": bool},
     "interface": {"level": (int, float), "diffusivity": (int, float), "contours": bool},
     "droplets": {"adjacency": str, "periodic": list, "ignore_remerge_within": int},
     "mixing": {"box": list, "section_axis": str, "section_count": int, "section_positions": list,
@@ -192,7 +192,7 @@ def measure_arguments(recipe: dict) -> dict:
         section_positions=tuple(mix["section_positions"]) if "section_positions" in mix else None,
         mixing_target=mix.get("target", 0.9), segregation_scale=mix.get("segregation_scale", False),
         drift_tolerance=cons.get("drift_tolerance", 1e-3),
-        strict=run.get("strict", False))
+        strict=run.get("strict", False), keep_3d=inp.get("keep_3d", False))
     return dict(path=inp["path"], options=options, out=out["folder"], overwrite=out.get("overwrite", False),
                 workers=run.get("workers", 1), scheduler=run.get("scheduler"),
                 write_contours=iface.get("contours", True), snapshots=run.get("snapshots", 4))

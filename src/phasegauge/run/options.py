@@ -72,6 +72,9 @@ class MeasureOptions:
         Relative phase-volume drift that raises a flag in the report.
     strict : bool
         Fail on a bad step instead of skipping it.
+    keep_3d : bool
+        Measure a mesh one cell thick (quasi-2D) as 3D; by default it is
+        measured per unit depth as 2D on its lower face plane.
     """
 
     field: str
@@ -93,6 +96,7 @@ class MeasureOptions:
     segregation_scale: bool = False
     drift_tolerance: float = 1e-3
     strict: bool = False
+    keep_3d: bool = False
 
     def __post_init__(self):
         set_ = object.__setattr__

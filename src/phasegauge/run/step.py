@@ -119,6 +119,28 @@ def step_velocity(step, options):
     return (mesh.point_to_cell(values) if "droplets" in options.analyses else None), values, location
 
 
+def flatten_step(step, options):
+    """The step on the 2D mesh of its lower plane when its mesh is one cell thick (quasi-2D).
+
+    Returns the step (a new one on the 2D mesh, or the step itself: with
+    ``options.keep_3d``, or a mesh that is not one cell thick) and the
+    :class:`~phasegauge.model.quasi2d.Quasi2D` record or None. Cell data carries over
+    unchanged (the cells keep their order); point data is the lower plane's.
+    """
+    if getattr(options, "keep_3d", False) or step.mesh.dimension != 3:
+        return step, None
+    from dataclasses import replace
+
+    from ..model.quasi2d import one_cell_thick
+
+    flat = one_cell_thick(step.mesh)
+    if flat is None:
+        return step, None
+    fields = replace(step.fields, point_data={name: np.asarray(values)[flat.points]
+                                              for name, values in step.fields.point_data.items()})
+    return replace(step, mesh=flat.mesh, fields=fields), flat
+
+
 def analyse_step(step, options, *, contour_dir: str | None = None, reported_meshes: set | None = None) -> StepResult:
     """Run the chosen analyses on one step read into the model (pure apart from contour files).
 
@@ -133,6 +155,7 @@ def analyse_step(step, options, *, contour_dir: str | None = None, reported_mesh
     """
     from ..analysis import conservation, droplets as droplets_mod, interface, mixing
 
+    step, flat = flatten_step(step, options)
     mesh = step.mesh
     ind = make_indicator(mesh, step.fields, options.field, value_range=options.value_range,
                          phase=options.phase, where=step.info.where)
@@ -146,6 +169,8 @@ def analyse_step(step, options, *, contour_dir: str | None = None, reported_mesh
                         outline=MeshOutline.of(mesh, centroids="droplets" in options.analyses))
     result.extra = options.step_extra(step, ind)
     m = {"step": step.index, "time": step.time}
+    if flat is not None:  # measured per unit depth: say so in the steps table
+        m["depth"] = float(flat.depth)
     if "conservation" in options.analyses:
         m.update(conservation.conservation_metrics(mesh, ind, densities=options.densities))
         m.update(conservation.boundedness(mesh, ind))
