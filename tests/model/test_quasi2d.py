@@ -90,3 +90,20 @@ def test_keep_3d_measures_the_slab(tmp_path):
     w = 1.5 / N
     assert res.steps["phase_volume"].iloc[0] == pytest.approx(0.1 * (np.pi * R ** 2 + np.pi ** 3 * w ** 2 / 12),
                                                               rel=2e-2)
+
+
+def test_inspect_manifest_and_report_say_quasi_2d(tmp_path):
+    import json
+
+    from phasegauge.io.describe import describe_series, format_description
+
+    hexes = grid_mesh((16, 16, 1), [(0, 1), (0, 1), (0, 0.05)])
+    folder = _write(tmp_path / "slab", hexes, _disc(hexes), "slab")
+    desc = describe_series(folder)
+    assert desc["quasi_2d"] == {"dimension": 2, "quasi_2d": True, "thin_axis": "z", "depth": pytest.approx(0.05)}
+    assert "quasi-2D    one cell thick along z" in format_description(desc)
+    out = tmp_path / "out"
+    measure(folder, "c", out=out, analyses=("interface", "conservation"))
+    manifest = json.load(open(out / "manifest.json"))
+    assert manifest["series"]["dimension"] == 2 and manifest["series"]["depth"] == pytest.approx(0.05)
+    assert "per unit depth" in open(out / "report.html").read()

@@ -9,7 +9,7 @@ from __future__ import annotations
 
 import numpy as np
 
-__all__ = ["series_record", "series_input_files", "interface_snapshots", "measure_report_data"]
+__all__ = ["series_record", "series_input_files", "interface_snapshots", "measure_report_data", "measured_as"]
 
 _AXIS_NAMES = "xyz"
 
@@ -20,6 +20,25 @@ def series_record(series) -> dict:
 
     return {"path": os.path.abspath(series.path), "kind": series.kind, "steps": len(series),
             "time_origin": "+".join(series.time_origins)}
+
+
+def measured_as(results, *, keep_3d: bool = False) -> dict:
+    """How the steps were measured: ``dimension`` and, for a quasi-2D mesh, ``depth`` and ``measured_as``.
+
+    A mesh one cell thick is measured per unit depth as 2D (its steps carry a ``depth``).
+    """
+    done = [r for r in results if getattr(r, "skipped", None) is None and getattr(r, "dimension", 0)]
+    if not done:
+        return {}
+    out = {"dimension": int(done[0].dimension)}
+    depth = next((r.metrics["depth"] for r in done if "depth" in (r.metrics or {})), None)
+    if depth is not None:
+        out["depth"] = float(depth)
+        out["measured_as"] = (f"2D per unit depth: the 3D mesh is one cell thick (depth {depth:.6g}); lengths, "
+                              "areas and circularity of its face plane")
+    elif keep_3d:
+        out["measured_as"] = "3D (--keep-3d)"
+    return out
 
 
 def series_input_files(series, results=()) -> list:
@@ -73,8 +92,10 @@ def measure_report_data(series, result) -> dict:
 
     results = list(result.results)
     contours = {r.index: getattr(r, "contour", None) for r in results}
+    record = series_record(series)
+    record.update(measured_as(results, keep_3d=getattr(result.options, "keep_3d", False)))
     return {
-        "series": series_record(series),
+        "series": record,
         "inputs": series_input_files(series, results),
         "snapshots": interface_snapshots(result.mesh, contours, {r.index: r.time for r in results}),
         "step_warnings": sorted({m for r in results for m in r.messages}),
