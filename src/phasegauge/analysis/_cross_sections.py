@@ -41,8 +41,11 @@ PROFILE_COLUMNS = ["position", "area", "mean_area_weighted", "mean_flow_weighted
                    "mixing_index_flow", "flow_rate", "inflow_mean", "segregation_intensity_inflow",
                    "mixing_index_inflow", "weighting"]
 
-#: a section has no net flow where |int u.n dA| <= this x max |u.n| on it x its area
-NO_FLOW_TOLERANCE = 1e-9
+#: a section has no net flow where |int u.n dA| <= this x int |u.n| dA: the flow-weighted mean
+#: divides by the net flow, so below this it would amplify round-off (float32 velocities of a closed
+#: box leave about 1e-8 of the gross flow, velocities averaged onto points 1e-5) and recirculation
+#: more than a thousand times
+NO_FLOW_TOLERANCE = 1e-3
 
 _AXES = {"x": 0, "y": 1, "z": 2}
 
@@ -221,7 +224,7 @@ def cross_sections(mesh: Mesh, c_point_or_indicator, *, axis="x", positions=None
         - ``weighting``: 'flow' or 'area', the weights of the ``_flow`` and ``_inflow`` columns.
 
         Flow-weighted columns are NaN without ``velocity``. Where a plane's net
-        flow rate is zero (|int u.n dA| <= 1e-9 max |u.n| x area) they take the
+        flow rate is zero (|int u.n dA| <= 1e-3 int |u.n| dA) they take the
         area-weighted values, and one :class:`PhasegaugeWarning` names those planes.
 
     Raises
@@ -310,9 +313,10 @@ def cross_sections(mesh: Mesh, c_point_or_indicator, *, axis="x", positions=None
         used = (float(w.sum()),) + tuple(integrals[:2])
         if un is not None:
             flow, flow_c, flow_cc = integrals[2:]
-            largest = max((float(np.max(np.abs(v), initial=0.0)) for v in un), default=0.0)
+            # int |u.n| dA, to the accuracy a tolerance needs (the mean of |u.n| over each piece's corners)
+            gross = float(dot(w, corner_sum([np.abs(v) for v in un]))) / len(un)
             row["flow_rate"] = flow
-            if abs(flow) > NO_FLOW_TOLERANCE * largest * float(w.sum()):
+            if abs(flow) > NO_FLOW_TOLERANCE * gross:
                 mean_f, intensity_f = _statistics(flow, flow_c, flow_cc, shift)
                 used = (flow, flow_c, flow_cc)
                 row["weighting"] = "flow"
@@ -328,8 +332,8 @@ def cross_sections(mesh: Mesh, c_point_or_indicator, *, axis="x", positions=None
         still = table.loc[table["weighting"] == "area", "position"].to_numpy()
         names = ", ".join(f"{'xyz'[global_axis]} = {x:.6g}" for x in still[:3])
         more = f" and {len(still) - 3} more" if len(still) > 3 else ""
-        warnings.warn(PhasegaugeWarning(f"no net flow through the section at {names}{more}: its flow-weighted "
-                                        "mean and mixing index use area weights"), stacklevel=2)
+        warnings.warn(PhasegaugeWarning(f"no net flow through the section at {names}{more}: the flow-weighted "
+                                        "mean and mixing index there use area weights"), stacklevel=2)
     if inflow_mean is None and len(table):
         first = int(np.argmin(positions))
         inflow_mean = table["mean_flow_weighted"].iloc[first] if u is not None else np.nan

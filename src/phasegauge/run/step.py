@@ -106,16 +106,16 @@ def step_velocity(step, options):
     """Velocity of the step on cells and on points, and where the file has it, or (None, None, None).
 
     Each side is converted only when an analysis of the run uses it: droplets use cell values,
-    cross sections point values, the boundary flux the file's own values.
+    the boundary flux and cross sections the file's own values (a cell-centred solver's cell
+    values are never averaged onto points for them).
     """
     if options.velocity is None:
         return None, None, None
     values, location = vector_field(step.fields, options.velocity, where=step.info.where,
                                     fix="name the velocity field with --velocity, or leave it out")
     mesh = step.mesh
-    need_points = "mixing" in options.analyses and options.section_axis is not None
     if location == "cell":
-        return values, (mesh.cell_to_point(values) if need_points else None), location
+        return values, None, location
     return (mesh.point_to_cell(values) if "droplets" in options.analyses else None), values, location
 
 
@@ -210,8 +210,10 @@ def analyse_step(step, options, *, contour_dir: str | None = None, reported_mesh
         if options.section_axis is not None:
             profile = mixing.cross_sections(mesh, ind, axis=options.section_axis,
                                             positions=options.section_positions,
-                                            count=options.section_count, velocity=u_point)
-            weighting = "flow" if u_point is not None else "area"
+                                            count=options.section_count,
+                                            velocity=u_cell if u_location == "cell" else u_point,
+                                            velocity_location=u_location)
+            weighting = "flow" if u_location is not None else "area"
             m["mixing_length"] = mixing.mixing_length(profile, target=options.mixing_target,
                                                       weighting=weighting)
             profile.insert(0, "time", step.time)
