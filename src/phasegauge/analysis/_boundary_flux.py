@@ -14,6 +14,10 @@ __all__ = ["open_boundary_flux", "OPEN_TOLERANCE"]
 #: a boundary face is open where |u.n| exceeds this times the largest speed of the step
 OPEN_TOLERANCE = 1e-9
 
+#: with cell velocities, a face is open only where |u.n| of its cell is at least this share of the
+#: cell's tangential speed (beside a wall the flow runs along it)
+WALL_RATIO = 0.1
+
 
 def _face_vectors(mesh: Mesh) -> tuple:
     """The boundary as simplices (segments in 2D, triangles in 3D).
@@ -125,7 +129,11 @@ def _open_cell_faces(mesh, u, owners, unit, centre, threshold) -> tuple[np.ndarr
         slope = np.where(deepest != owners, (un - deepest_un) / (deepest_depth - own_depth), 0.0)
     along_normal = un + slope * own_depth
     keeps = (by_gradient * un >= 0.5 * un * un) & (along_normal * un >= 0.5 * un * un)
-    is_open = (np.abs(un) > threshold) & keeps
+    # beside a wall the flow runs along it: a cell whose normal velocity is under a tenth of its
+    # tangential speed is a wall cell (flow through an inlet or outlet is mostly across it)
+    tangential = np.linalg.norm(u[owners] - un[:, None] * unit, axis=1)
+    across = np.abs(un) >= WALL_RATIO * np.where(np.isfinite(tangential), tangential, 0.0)
+    is_open = (np.abs(un) > threshold) & keeps & across
     return un, is_open
 
 
@@ -165,13 +173,17 @@ def open_boundary_flux(mesh: Mesh, velocity, c=None, *, tolerance: float = OPEN_
     *Velocity on cells* (a cell-centred solver's own values): each boundary
     face takes its cell's velocity and indicator, u.n with the face's
     outward normal, times the face area. A face is open where
-    |u.n| > ``tolerance`` x the largest speed and where u.n, extrapolated
-    linearly to the face from the cell and its face neighbour deepest inside
-    along the normal, keeps at least half its value with the same sign. At
-    a wall the normal velocity falls to zero towards the face (a wall cell
-    of a cell-centred solver carries a small u.n, of order h^2 at a no-slip
-    wall, that is not a flux), so walls are closed and a closed box has no
-    boundary flux at all; through an inlet or outlet u.n keeps its value.
+    |u.n| > ``tolerance`` x the largest speed, where u.n reconstructed
+    linearly to the face (from the least-squares gradient over the cell's
+    face neighbours, and along the normal from the neighbour deepest inside)
+    keeps at least half its value with the same sign, and where |u.n| is at
+    least a tenth of the cell's tangential speed. At a wall the normal
+    velocity falls to zero towards the face and the flow runs along it (a
+    wall cell of a cell-centred solver carries a small u.n, of order h^2 at
+    a no-slip wall, that is not a flux), so walls are closed and a closed
+    box has no boundary flux at all; through an inlet or outlet u.n keeps
+    its value. Flow leaving at less than about 6 degrees to the boundary is
+    not counted.
 
     *Velocity on points* (no cell values): a face is open where u.n at its
     centre (the mean of its corners) exceeds the tolerance; the flux over
