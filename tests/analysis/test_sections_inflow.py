@@ -96,3 +96,15 @@ def test_sections_with_no_net_flow_do_not_abort_a_run(tmp_path):
                       analyses=("mixing",))
     assert len(res.profiles) == 4 and "mixing_index_inflow" in res.profiles
     assert any("no net flow through the section" in text for text in res.warnings)
+
+
+def test_inflow_is_the_first_section_along_the_flow():
+    # flow towards -x: the inflow section is the highest position [the same hand computation]
+    mesh, x, y, u = _channel(10)
+    c = np.where(x > 1, (y < 0.3).astype(float), 0.3)
+    table = cross_sections(mesh, c, positions=[0.55, 1.95], velocity=-u, c_location="cell",
+                           velocity_location="cell")
+    column = np.sort(np.unique(np.round(y, 12)))
+    w = 6 * column * (1 - column) / 10
+    m_in = float(np.sum(w * (column < 0.3)) / np.sum(w))
+    assert table["inflow_mean"].iloc[0] == pytest.approx(m_in, rel=1e-12)

@@ -201,8 +201,10 @@ def cross_sections(mesh: Mesh, c_point_or_indicator, *, axis="x", positions=None
         as cells (otherwise the length tells).
     inflow_mean : float, optional
         The well-mixed reference: the mean of c over the whole inflow. By
-        default the mean over the first plane (lowest position), flow-weighted
-        (area-weighted without velocity or without net flow through it).
+        default the mean over the first plane along the flow (the lowest
+        position; the highest when the net flow runs towards -axis),
+        flow-weighted (area-weighted without velocity or without net flow
+        through it).
 
     Returns
     -------
@@ -335,7 +337,10 @@ def cross_sections(mesh: Mesh, c_point_or_indicator, *, axis="x", positions=None
         warnings.warn(PhasegaugeWarning(f"no net flow through the section at {names}{more}: the flow-weighted "
                                         "mean and mixing index there use area weights"), stacklevel=2)
     if inflow_mean is None and len(table):
-        first = int(np.argmin(positions))
+        # the inflow section: the first plane along the flow (the lowest position, the highest for
+        # flow towards -axis)
+        backwards = u is not None and float(np.nansum(table["flow_rate"].to_numpy())) < 0
+        first = int(np.argmax(positions) if backwards else np.argmin(positions))
         inflow_mean = table["mean_flow_weighted"].iloc[first] if u is not None else np.nan
         if not np.isfinite(inflow_mean):
             inflow_mean = table["mean_area_weighted"].iloc[first]
