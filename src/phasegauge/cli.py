@@ -217,6 +217,8 @@ def _add(options):
 @click.option("--resume", is_flag=True, help="Finish an interrupted run in OUT, reusing finished steps.")
 @click.option("--overwrite", is_flag=True, help="Replace an existing output folder.")
 @click.option("--strict", is_flag=True, help="Stop at a bad step instead of skipping it.")
+@click.option("--keep-3d", is_flag=True,
+              help="Measure a mesh one cell thick as 3D (by default: per unit depth, as 2D).")
 @click.option("--no-contours", is_flag=True, help="Do not write the interface geometry of every step.")
 @click.option("--snapshots", type=int, default=4, show_default=True, help="Steps whose interface the report draws.")
 @click.option("--sort-by-time", is_flag=True,
@@ -226,8 +228,8 @@ def _add(options):
 def measure(path, field, value_range, phase, level, velocity, field_location, sort_by_time, out, analyses,
             adjacency, periodic,
             ignore_remerge, densities, diffusivity, box, section_axis, section_count, section_at,
-            mixing_target, segregation_scale, drift_tolerance, workers, scheduler, resume, overwrite, strict, no_contours,
-            snapshots, quiet):
+            mixing_target, segregation_scale, drift_tolerance, workers, scheduler, resume, overwrite, strict, keep_3d,
+            no_contours, snapshots, quiet):
     """Measure interface, droplets, mixing and conservation on every step of PATH.
 
     PATH is a mesh file, an XDMF time series, a folder of numbered files, a
@@ -245,7 +247,7 @@ def measure(path, field, value_range, phase, level, velocity, field_location, so
         section_positions=_floats(section_at, "--section-at"), mixing_target=mixing_target,
         segregation_scale=segregation_scale,
         drift_tolerance=drift_tolerance, strict=strict, field_location=field_location or "auto",
-        sort_by_time=sort_by_time)
+        sort_by_time=sort_by_time, keep_3d=keep_3d)
     result = run_measure(path, options=options, out=out, workers=workers, scheduler=scheduler,
                          overwrite=overwrite, resume=resume, progress=None if not quiet else False,
                          write_contours=not no_contours, snapshots=snapshots)

@@ -64,7 +64,7 @@ _INPUT = {"path": str, "field": str, "range": list, "phase": str, "velocity": st
           "field_location": str, "sort_by_time": bool}
 
 RECIPE_SCHEMA = {
-    "input": _INPUT,
+    "input": {**_INPUT, "keep_3d": bool},
     "interface": {"level": (int, float), "diffusivity": (int, float), "contours": bool},
     "droplets": {"adjacency": str, "periodic": list, "ignore_remerge_within": int},
     "mixing": {"box": list, "section_axis": str, "section_count": int, "section_positions": list,
@@ -279,7 +279,7 @@ def measure_arguments(recipe: dict) -> dict:
         mixing_target=mix.get("target", 0.9), segregation_scale=mix.get("segregation_scale", False),
         drift_tolerance=cons.get("drift_tolerance", 1e-3),
         strict=run.get("strict", False), field_location=inp.get("field_location", "auto"),
-        sort_by_time=inp.get("sort_by_time", False))
+        sort_by_time=inp.get("sort_by_time", False), keep_3d=inp.get("keep_3d", False))
     return dict(path=inp["path"], options=options, out=out["folder"], overwrite=out.get("overwrite", False),
                 workers=run.get("workers", 1), scheduler=run.get("scheduler"),
                 write_contours=iface.get("contours", True), snapshots=run.get("snapshots", 4))

@@ -19,8 +19,10 @@ def test_profile_plot_has_one_curve_per_label(tmp_path):
                 for t in (1.0, 3.0)}
     figure = plot_mixing_profile(profiles, axis_label="x")
     lines = figure.axes[0].get_lines()
-    assert len(lines) == 3  # two profiles and the target line
+    assert len(lines) == 5  # two profiles, each against its own and the inflow mean, and the target line
     np.testing.assert_allclose(lines[0].get_ydata(), profiles["t = 1.0"]["mixing_index_flow"])
+    np.testing.assert_allclose(lines[1].get_ydata(), profiles["t = 1.0"]["mixing_index_inflow"])
+    assert lines[1].get_color() == lines[0].get_color() and "inflow mean" in lines[1].get_label()
     figure.savefig(tmp_path / "profile.png")
     assert (tmp_path / "profile.png").stat().st_size > 0
     no_flow = {"a": cross_sections(mesh, y, count=3)}

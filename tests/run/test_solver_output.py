@@ -51,7 +51,8 @@ def test_integrals_and_droplets_use_the_solver_cell_values(tank):
     for k, n in enumerate(STEPS):
         volume, alpha_cell, _, corner_mean = _reference(tank, n)
         truth = float(np.sum(alpha_cell * volume))  # numpy: sum(alpha_cell * cell volume)
-        assert steps["phase_volume"][k] == pytest.approx(truth, rel=1e-12, abs=0)
+        # one cell thick: measured per unit depth (quasi-2D), times the depth is the 3D volume
+        assert steps["phase_volume"][k] * steps["depth"][k] == pytest.approx(truth, rel=1e-12, abs=0)
         assert steps["c_min"][k] == alpha_cell.min() and steps["c_max"][k] == alpha_cell.max()
         # droplets: scipy's face-connected labelling of the cells above the level
         _, count = ndimage.label(_cells_grid(alpha_cell) > 0.5)
@@ -66,8 +67,9 @@ def test_the_point_copy_is_read_only_when_asked(tank):
     result = pg.measure(tank, "alpha", field_location="point", analyses=("conservation", "droplets"))
     for k, n in enumerate(STEPS):
         volume, alpha_cell, _, corner_mean = _reference(tank, n)
-        assert result.steps["phase_volume"][k] == pytest.approx(np.sum(corner_mean * volume), rel=1e-12)
-        assert result.steps["phase_volume"][k] != pytest.approx(np.sum(alpha_cell * volume), rel=1e-3)
+        measured = result.steps["phase_volume"][k] * result.steps["depth"][k]  # per unit depth x depth
+        assert measured == pytest.approx(np.sum(corner_mean * volume), rel=1e-12)
+        assert measured != pytest.approx(np.sum(alpha_cell * volume), rel=1e-3)
     # the droplet counts of the point copy are wrong at some steps (scipy's labels of the cell values)
     truth = [ndimage.label(_cells_grid(_reference(tank, n)[1]) > 0.5)[1] for n in STEPS]
     assert result.steps["droplet_count"].tolist() != truth
@@ -134,7 +136,8 @@ def test_sort_by_time_from_the_cli_and_a_recipe(tmp_path):
     raw = meshio.read(tmp_path / "case" / "tank_114" / "internal.vtu")
     corners = raw.points[raw.cells[0].data]
     volume = np.prod(corners.max(axis=1) - corners.min(axis=1), axis=1)
-    assert steps["phase_volume"][1] == pytest.approx(np.sum(raw.cell_data["alpha"][0] * volume), rel=1e-9)
+    assert steps["phase_volume"][1] * steps["depth"][1] == pytest.approx(np.sum(raw.cell_data["alpha"][0] * volume),
+                                                                           rel=1e-9)
     recipe = tmp_path / "r.toml"
     recipe.write_text('[input]\npath = "case"\nfield = "alpha"\nfield_location = "point"\nsort_by_time = true\n'
                       '[run]\nanalyses = ["conservation"]\n[output]\nfolder = "out"\n')
@@ -154,9 +157,13 @@ def test_compare_reads_the_copy_and_order_each_run_asks_for(tank, tmp_path):
         result = compare_runs(first, second, time_tolerance=1e-9)
     # each run's phase volume is numpy's sum over its own copy (cells; corner means of the points)
     volume, alpha_cell, _, _ = _reference(tank, 0)
-    assert result.first.steps["phase_volume"][0] == pytest.approx(np.sum(alpha_cell * volume), rel=1e-12)
+    first_steps = result.first.steps  # one cell thick: per unit depth, times the depth
+    assert first_steps["phase_volume"][0] * first_steps["depth"][0] == pytest.approx(np.sum(alpha_cell * volume),
+                                                                                      rel=1e-12)
     volume, _, _, corner_mean = _reference(tmp_path / "scrambled", 0)
-    assert result.second.steps["phase_volume"][0] == pytest.approx(np.sum(corner_mean * volume), rel=1e-12)
+    second_steps = result.second.steps
+    assert second_steps["phase_volume"][0] * second_steps["depth"][0] == pytest.approx(np.sum(corner_mean * volume),
+                                                                                        rel=1e-12)
     assert result.second.steps["time"].tolist() == [0.0, 0.2, 0.3, 0.4, 0.5]
     assert len(result.pairs) == 1  # only time 0 is shared by both runs
 
@@ -235,7 +242,8 @@ def test_resume_sees_a_rewritten_volume_block_behind_an_unchanged_vtm(tmp_path):
     result = pg.measure(case, "alpha", out=out, analyses=("conservation",), overwrite=True)
     for k, n in enumerate(STEPS):
         volume, alpha_cell, _, _ = _reference(case, n)
-        assert result.steps["phase_volume"][k] == pytest.approx(np.sum(alpha_cell * volume), rel=1e-12)
+        measured = result.steps["phase_volume"][k] * result.steps["depth"][k]  # per unit depth x depth
+        assert measured == pytest.approx(np.sum(alpha_cell * volume), rel=1e-12)
 
 
 @pytest.mark.filterwarnings("ignore:.*ordered by the times in their files")

@@ -20,10 +20,12 @@ from __future__ import annotations
 
 from math import factorial
 
+import warnings
+
 import numpy as np
 import pandas as pd
 
-from ..errors import OptionError
+from ..errors import OptionError, PhasegaugeWarning
 from ..model.axes import AXIS_INDEX, AXIS_NAMES
 from ..model.corners import corner_sum
 from ..model.fields import field_location
@@ -37,7 +39,15 @@ __all__ = ["cross_sections", "PROFILE_COLUMNS"]
 #: columns of the table :func:`cross_sections` returns, in order
 PROFILE_COLUMNS = ("position", "area", "mean_area_weighted", "mean_flow_weighted",
                    "segregation_intensity", "segregation_intensity_flow", "mixing_index",
-                   "mixing_index_flow", "flow_rate")
+                   "mixing_index_flow", "flow_rate", "inflow_mean", "segregation_intensity_inflow",
+                   "mixing_index_inflow", "weighting")
+
+#: a section has no net flow where |int u.n dA| <= this x int |u.n| dA: the flow-weighted mean
+#: divides by the net flow, so below this it would amplify round-off (float32 velocities of a closed
+#: box leave about 1e-8 of the gross flow, velocities averaged onto points 1e-5) and recirculation
+#: more than a thousand times
+NO_FLOW_TOLERANCE = 1e-3
+
 
 def normalize_axis(mesh: Mesh, axis) -> tuple[int, int]:
     """The global axis (0, 1, 2) and the analysis axis (index into ``mesh.coordinates``)."""
@@ -152,9 +162,19 @@ def _statistics(weight_total: float, first: float, second: float, shift: float) 
     return mean, (variance / spread if spread > 0 else np.nan)
 
 
+def _about(weight_total: float, first: float, second: float, shift: float, reference: float) -> float:
+    """Danckwerts' I about a given mean: int w (c - ref)^2 / (W ref (1 - ref)), from the shifted moments."""
+    spread = reference * (1.0 - reference)
+    if not weight_total or not np.isfinite(reference) or spread <= 0:
+        return np.nan
+    offset = reference - shift
+    variance = max(second / weight_total - 2.0 * offset * first / weight_total + offset * offset, 0.0)
+    return variance / spread
+
+
 def cross_sections(mesh: Mesh, c_point_or_indicator, *, axis="x", positions=None, count: int = 20,
                    velocity=None, c_location: str | None = None,
-                   velocity_location: str | None = None) -> pd.DataFrame:
+                   velocity_location: str | None = None, inflow_mean: float | None = None) -> pd.DataFrame:
     """Mean, intensity of segregation and mixing index on planes across the domain.
 
     Parameters
@@ -178,6 +198,12 @@ def cross_sections(mesh: Mesh, c_point_or_indicator, *, axis="x", positions=None
     c_location, velocity_location : {'point', 'cell'}, optional
         Where an array lives; needed only when the mesh has as many points
         as cells (otherwise the length tells).
+    inflow_mean : float, optional
+        The well-mixed reference: the mean of c over the whole inflow. By
+        default the mean over the first plane along the flow (the lowest
+        position; the highest when the net flow runs towards -axis),
+        flow-weighted (area-weighted without velocity or without net flow
+        through it).
 
     Returns
     -------
@@ -190,9 +216,17 @@ def cross_sections(mesh: Mesh, c_point_or_indicator, *, axis="x", positions=None
         - ``segregation_intensity``, ``segregation_intensity_flow``: I = var / (m (1 - m)) with
           the same weights; NaN when m (1 - m) <= 0 (a uniform pure phase, or m out of [0, 1]);
         - ``mixing_index``, ``mixing_index_flow``: 1 - sqrt(I);
-        - ``flow_rate``: int u.n dA, volume per time (area per time in 2D), signed along +axis.
+        - ``flow_rate``: int u.n dA, volume per time (area per time in 2D), signed along +axis;
+        - ``inflow_mean``: the reference mean (``inflow_mean``, or the first plane's mean);
+        - ``segregation_intensity_inflow``, ``mixing_index_inflow``: Danckwerts' I about the
+          inflow mean, int w (c - m_in)^2 / (W m_in (1 - m_in)), and 1 - sqrt(I), with flow
+          weights (area weights where the plane has no net flow or there is no velocity): a
+          plane of pure phase reads I near 1 (unmixed) whatever its own mean;
+        - ``weighting``: 'flow' or 'area', the weights of the ``_flow`` and ``_inflow`` columns.
 
-        Flow-weighted columns are NaN without ``velocity``, or where the net flow rate is 0.
+        Flow-weighted columns are NaN without ``velocity``. Where a plane's net
+        flow rate is zero (|int u.n dA| <= 1e-3 int |u.n| dA) they take the
+        area-weighted values, and one :class:`PhasegaugeWarning` names those planes.
 
     Raises
     ------
@@ -218,6 +252,9 @@ def cross_sections(mesh: Mesh, c_point_or_indicator, *, axis="x", positions=None
     Danckwerts, P. V. (1952). The definition and measurement of some
     characteristics of mixtures. Applied Scientific Research A3, 279-296.
     """
+    if inflow_mean is not None and not np.isfinite(inflow_mean):
+        raise OptionError(f"inflow_mean must be a finite number, found {inflow_mean!r}",
+                          fix="give the mean of c over the inflow, or leave it out")
     global_axis, plane_axis = normalize_axis(mesh, axis)
     c, c_location = field_location(mesh, c_point_or_indicator, "c", c_location)
     if c.ndim != 1:
@@ -265,7 +302,7 @@ def cross_sections(mesh: Mesh, c_point_or_indicator, *, axis="x", positions=None
             return [values[sections.corners[i, a:b].astype(np.intp)] for i in range(k)]
         return [values[sections.parent[a:b].astype(np.intp)] - offset] * k
 
-    rows = []
+    rows, moments = [], []
     for p, position in enumerate(positions):
         a, b = sections.offsets[p], sections.offsets[p + 1]
         w = sections.measures[a:b]
@@ -279,16 +316,44 @@ def cross_sections(mesh: Mesh, c_point_or_indicator, *, axis="x", positions=None
         integrals = _section_integrals(w, cv, un)
         mean, intensity = _statistics(float(w.sum()), integrals[0], integrals[1], shift)
         row = {"position": float(position), "area": float(sections.areas[p]), "mean_area_weighted": mean,
-               "segregation_intensity": intensity}
+               "segregation_intensity": intensity, "weighting": "area"}
+        used = (float(w.sum()),) + tuple(integrals[:2])
         if un is not None:
             flow, flow_c, flow_cc = integrals[2:]
-            mean_f, intensity_f = _statistics(flow, flow_c, flow_cc, shift)
-            row.update(mean_flow_weighted=mean_f, segregation_intensity_flow=intensity_f,
-                       flow_rate=flow)
+            # int |u.n| dA, to the accuracy a tolerance needs (the mean of |u.n| over each piece's corners)
+            gross = float(dot(w, corner_sum([np.abs(v) for v in un]))) / len(un)
+            row["flow_rate"] = flow
+            if abs(flow) > NO_FLOW_TOLERANCE * gross:
+                mean_f, intensity_f = _statistics(flow, flow_c, flow_cc, shift)
+                used = (flow, flow_c, flow_cc)
+                row["weighting"] = "flow"
+            else:  # no net flow through this plane: area weights
+                mean_f, intensity_f = mean, intensity
+            row.update(mean_flow_weighted=mean_f, segregation_intensity_flow=intensity_f)
         rows.append(row)
-    table = pd.DataFrame(rows, columns=list(PROFILE_COLUMNS), dtype=np.float64)
+        moments.append(used)
+    table = pd.DataFrame(rows, columns=list(PROFILE_COLUMNS))
+    table[[c for c in PROFILE_COLUMNS if c != "weighting"]] = table[
+        [c for c in PROFILE_COLUMNS if c != "weighting"]].astype(np.float64)
+    if u is not None and len(table) and (table["weighting"] == "area").any():
+        still = table.loc[table["weighting"] == "area", "position"].to_numpy()
+        names = ", ".join(f"{AXIS_NAMES[global_axis]} = {x:.6g}" for x in still[:3])
+        more = f" and {len(still) - 3} more" if len(still) > 3 else ""
+        warnings.warn(PhasegaugeWarning(f"no net flow through the section at {names}{more}: the flow-weighted "
+                                        "mean and mixing index there use area weights"), stacklevel=2)
+    if inflow_mean is None and len(table):
+        # the inflow section: the first plane along the flow (the lowest position, the highest for
+        # flow towards -axis)
+        backwards = u is not None and float(np.nansum(table["flow_rate"].to_numpy())) < 0
+        first = int(np.argmax(positions) if backwards else np.argmin(positions))
+        inflow_mean = table["mean_flow_weighted"].iloc[first] if u is not None else np.nan
+        if not np.isfinite(inflow_mean):
+            inflow_mean = table["mean_area_weighted"].iloc[first]
+    table["inflow_mean"] = float(inflow_mean) if len(table) else np.nan
+    table["segregation_intensity_inflow"] = [_about(*m, shift, float(inflow_mean)) for m in moments]
     with np.errstate(invalid="ignore"):
         table["mixing_index"] = 1.0 - np.sqrt(table["segregation_intensity"])
         table["mixing_index_flow"] = 1.0 - np.sqrt(table["segregation_intensity_flow"])
-    return table
+        table["mixing_index_inflow"] = 1.0 - np.sqrt(table["segregation_intensity_inflow"])
+    return table[list(PROFILE_COLUMNS)]
 

@@ -1,4 +1,4 @@
-"""Phase volume, its drift over a series, boundedness, and the phase flux through open boundaries."""
+"""Phase volume, its drift over a series and boundedness (the boundary flux is in ``_boundary_flux``)."""
 
 from __future__ import annotations
 
@@ -6,14 +6,13 @@ import numpy as np
 import pandas as pd
 
 from ..errors import OptionError
-from ..model.fields import cell_values, field_location, vector_values
+from ..model.fields import cell_values
 from ..model.indicator import Indicator
 from ..model.mesh import Mesh
 from ._sums import dot
 
 
-__all__ = ["boundedness", "conservation_metrics", "volume_drift", "drift_columns",
-           "open_boundary_flux"]
+__all__ = ["boundedness", "conservation_metrics", "volume_drift", "drift_columns"]
 
 
 def boundedness(mesh: Mesh, indicator) -> dict:
@@ -151,7 +150,8 @@ def drift_columns(steps_df: pd.DataFrame) -> pd.DataFrame:
         that left through the boundary since the first step, trapezoidal rule
         in time: as exact as the output interval allows) and
         ``phase_volume_drift_closed`` = (V + outflow - V0) / V0, the drift the
-        boundary flux does not explain.
+        boundary flux does not explain; not added when the table has an
+        ``open_boundary`` column that is false at every step.
     """
     if "phase_volume" not in steps_df:
         raise OptionError("the steps table has no 'phase_volume' column",
@@ -160,7 +160,9 @@ def drift_columns(steps_df: pd.DataFrame) -> pd.DataFrame:
     relative, absolute = volume_drift(out["phase_volume"].to_numpy())
     out["phase_volume_drift"] = relative
     out["phase_volume_drift_abs"] = absolute
-    if "boundary_phase_outflow" in out and "time" in out and len(out):
+    # a series with no open boundary at any step gets no outflow columns (nothing crossed)
+    any_open = "open_boundary" not in out or bool(out["open_boundary"].astype(bool).any())
+    if "boundary_phase_outflow" in out and "time" in out and len(out) and any_open:
         rate = out["boundary_phase_outflow"].to_numpy(dtype=np.float64)
         t = out["time"].to_numpy(dtype=np.float64)
         outflow = np.concatenate([[0.0], np.cumsum(0.5 * (rate[1:] + rate[:-1]) * np.diff(t))])
@@ -168,125 +170,4 @@ def drift_columns(steps_df: pd.DataFrame) -> pd.DataFrame:
         v0 = float(out["phase_volume"].iloc[0])
         with np.errstate(invalid="ignore", divide="ignore"):
             out["phase_volume_drift_closed"] = (absolute + outflow) / v0 if v0 else np.nan
-    return out
-
-
-def _face_vectors(mesh: Mesh) -> tuple:
-    """The boundary as simplices (segments in 2D, triangles in 3D).
-
-    Returns corner point indices (n, k), owner cells (n,), outward unit
-    normals (n, dim) and measures (n,).
-    """
-    corners, owner = mesh.boundary_faces
-    X = mesh.coordinates
-    if mesh.dimension == 2:
-        pieces, owners = corners, owner
-        d = X[pieces[:, 1]] - X[pieces[:, 0]]
-        normal = np.stack([d[:, 1], -d[:, 0]], axis=1)
-    else:
-        triangle = corners[:, 0] < 0
-        tri = corners[triangle][:, 1:]
-        quad = corners[~triangle]
-        # sorted corners lose the cycle: rebuild it as the cycle around the face centre
-        quad = _cycle_quads(X, quad)
-        pieces = np.concatenate([tri, quad[:, [0, 1, 2]], quad[:, [0, 2, 3]]])
-        owners = np.concatenate([owner[triangle], owner[~triangle], owner[~triangle]])
-        P = X[pieces]
-        normal = 0.5 * np.cross(P[:, 1] - P[:, 0], P[:, 2] - P[:, 0])
-    measure = np.linalg.norm(normal, axis=1)
-    centre = X[pieces].mean(axis=1)
-    outward = np.einsum("nd,nd->n", normal, centre - mesh.cell_centroids[owners])
-    normal = normal * np.where(outward < 0, -1.0, 1.0)[:, None]
-    with np.errstate(invalid="ignore", divide="ignore"):
-        unit = normal / np.where(measure > 0, measure, 1.0)[:, None]
-    return pieces, owners, unit, measure
-
-
-def _cycle_quads(X: np.ndarray, quad: np.ndarray) -> np.ndarray:
-    """Order the four corners of each quad face around its centre."""
-    if quad.size == 0:
-        return quad
-    P = X[quad]
-    centre = P.mean(axis=1, keepdims=True)
-    normal = np.cross(P[:, 1] - P[:, 0], P[:, 2] - P[:, 0])
-    normal += np.cross(P[:, 2] - P[:, 0], P[:, 3] - P[:, 0])
-    u = P[:, 0] - centre[:, 0]
-    v = np.cross(normal, u)
-    rel = P - centre
-    angle = np.arctan2(np.einsum("nkd,nd->nk", rel, v), np.einsum("nkd,nd->nk", rel, u))
-    return np.take_along_axis(quad, np.argsort(angle, axis=1), axis=1)
-
-
-def _velocity_vectors(mesh: Mesh, velocity, location) -> tuple[np.ndarray, str]:
-    """Velocity vectors in the analysis space: (n, dimension), on points or cells."""
-    array, location = vector_values(mesh, velocity, "velocity", location)
-    if array.shape[1] == 3 and mesh.dimension == 2:
-        array = array[:, list(mesh.plane_axes)]
-    return array, location
-
-
-def open_boundary_flux(mesh: Mesh, velocity, c=None, *, tolerance: float = 1e-6,
-                       velocity_location: str | None = None, c_location: str | None = None) -> dict:
-    """Flow and phase flux through the domain boundary.
-
-    Parameters
-    ----------
-    mesh : Mesh
-    velocity : ndarray of shape (n_points, 3 or dim) or (n_cells, 3 or dim)
-        Velocity on points or cells, length units per time unit.
-    c : Indicator or ndarray of shape (n_points,) or (n_cells,), optional
-        Phase indicator; without it only the flow figures are returned.
-    tolerance : float
-        A boundary piece is open where |u.n| exceeds ``tolerance`` times the
-        largest speed in the domain.
-    velocity_location, c_location : {'point', 'cell'}, optional
-        Where an array lives; needed only when the mesh has as many points
-        as cells.
-
-    Returns
-    -------
-    dict
-        - ``open_boundary``: True when any boundary piece is open;
-        - ``open_boundary_area``: measure of the open pieces (length in 2D);
-        - ``boundary_outflow``: net int u.n dS, volume leaving per unit time
-          (negative: net inflow);
-        - ``boundary_phase_outflow``: net int c u.n dS, phase volume leaving
-          per unit time (with ``c``).
-
-    Notes
-    -----
-    Boundary faces are the faces (edges in 2D) owned by one cell; quad faces
-    are split in two triangles. Point fields are linear on each piece and
-    the product c u.n is integrated exactly (int f g = |S| (sum f_i g_i +
-    sum f_i sum g_i) / (k (k + 1)) on a simplex with k corners); cell fields
-    take the owner cell's value. The time integral of
-    ``boundary_phase_outflow`` is what the phase-volume drift of an open
-    domain contains besides numerical loss (see :func:`drift_columns`).
-    """
-    if not (np.isfinite(tolerance) and tolerance >= 0):
-        raise OptionError(f"tolerance must be a number >= 0, found {tolerance!r}", fix="for example 1e-6")
-    u, u_location = _velocity_vectors(mesh, velocity, velocity_location)
-    if c is not None:
-        c_values, c_location = field_location(mesh, c, "c", c_location)
-    pieces, owners, unit, measure = _face_vectors(mesh)
-    k = pieces.shape[1]
-    if u_location == "point":
-        un = np.einsum("nkd,nd->nk", u[pieces], unit)
-    else:
-        un = np.repeat(np.einsum("nd,nd->n", u[owners], unit)[:, None], k, axis=1)
-    un = np.where(np.isfinite(un), un, 0.0)
-    # open where |u.n| is a real share of the flow: relative to the largest speed anywhere, so a
-    # wall where the velocity is zero to round-off does not count as open
-    speed = float(np.nanmax(np.linalg.norm(u, axis=-1), initial=0.0))
-    is_open = np.any(np.abs(un) > tolerance * speed, axis=1) if speed > 0 else np.zeros(len(un), bool)
-    out = {"open_boundary": bool(is_open.any()), "open_boundary_area": float(measure[is_open].sum()),
-           "boundary_outflow": float(dot(measure, un.mean(axis=1)))}
-    if c is not None:
-        if c_location == "point":
-            cv = c_values[pieces]
-        else:
-            cv = np.repeat(c_values[owners][:, None], k, axis=1)
-        cv = np.where(np.isfinite(cv), cv, 0.0)
-        product = (np.einsum("nk,nk->n", cv, un) + cv.sum(axis=1) * un.sum(axis=1)) / (k * (k + 1))
-        out["boundary_phase_outflow"] = float(dot(measure, product))
     return out

@@ -58,10 +58,15 @@ class MeshPool:
         return None
 
     def find(self, signature: str) -> Mesh | None:
-        """The kept mesh with this :attr:`Mesh.signature`, or None."""
+        """The kept mesh with this :attr:`Mesh.signature` (or the 2D mesh of a kept quasi-2D one), or None."""
+        from ..model.quasi2d import flat_mesh_if_built
+
         for mesh in self._meshes:
             if mesh.signature == signature:
                 return mesh
+            flat = flat_mesh_if_built(mesh)
+            if flat is not None and flat.signature == signature:
+                return flat
         return None
 
     def add(self, mesh: Mesh | None) -> None:

@@ -125,6 +125,9 @@ def _describe(series, scan: str) -> dict:
         warnings.warn(MeshWarning(f"the cells have no {word} (total {mesh.total_measure:g}); measure refuses "
                                   "this mesh", where=first.info.where), stacklevel=3)
     sizes = mesh.cell_sizes
+    from ..model.quasi2d import one_cell_thick
+
+    flat = one_cell_thick(mesh)
     desc = {
         "path": os.fspath(series.path),
         "kind": series.kind,
@@ -136,6 +139,7 @@ def _describe(series, scan: str) -> dict:
         "cell_types": {k: int(v) for k, v in mesh.cell_type_counts.items()},
         "boundary_cell_types": {k: int(v) for k, v in mesh.boundary_type_counts.items()},
         "dimension": int(mesh.dimension),
+        "quasi_2d": None if flat is None else flat.record(),
         "bounds": mesh.bounds.tolist(),
         "total_measure": float(mesh.total_measure),
         "regular_grid": (list(mesh.regular_grid.cell_shape) if mesh.regular_grid is not None else None),
@@ -208,6 +212,10 @@ def format_description(desc: dict) -> str:
              f"mesh        {desc['dimension']}D, {desc['points']} points, {desc['cells']} cells"
              + (" (mesh changes between steps)" if desc["mesh_changes"] else ""),
              "cell types  " + ", ".join(f"{k} {v}" for k, v in desc["cell_types"].items())]
+    if desc.get("quasi_2d"):
+        q = desc["quasi_2d"]
+        lines.append(f"quasi-2D    one cell thick along {q['thin_axis']} (depth {q['depth']:.6g}): measure works per "
+                     "unit depth as 2D (lengths, areas, circularity); --keep-3d measures it as 3D")
     if desc["boundary_cell_types"]:
         lines.append("not analysed " + ", ".join(f"{k} {v}" for k, v in desc["boundary_cell_types"].items())
                      + " (lower-dimensional cells)")

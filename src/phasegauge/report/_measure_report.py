@@ -189,7 +189,8 @@ def _page(result, series, pngs, execution, version) -> Page:
                      ("interface level", opts.level), ("velocity field", opts.velocity or "none"),
                      ("droplet adjacency", opts.connectivity),
                      ("periodic axes", ", ".join(opts.periodic) or "none"),
-                     ("workers", execution.get("workers")), ("scheduler", execution.get("scheduler") or "none")])
+                     ("workers", execution.get("workers")), ("scheduler", execution.get("scheduler") or "none")]
+                    + ([("measured as", series["measured_as"])] if series.get("measured_as") else []))
     page.paragraph("Tables: steps.csv (one row per step), droplets.csv, events.csv"
                    + (", profiles.csv" if len(result.profiles) else "")
                    + "; interface geometry per step in contours/; inputs, options and timings in manifest.json.",

@@ -33,7 +33,9 @@ def plot_mixing_profile(profiles: dict, *, weighting: str = "flow", target: floa
         Label (a step's time, a run's name) to a table from ``cross_sections``.
     weighting : {'flow', 'area'}
         Plot ``mixing_index_flow`` or ``mixing_index``; a profile without flow
-        values falls back to the area-weighted index (its label says so).
+        values falls back to the area-weighted index (its label says so). A
+        profile with ``mixing_index_inflow`` also gets that curve (dotted, same
+        colour): the index against the inflow mean.
     target : float or None
         Draws the target mixing index as a dashed line.
     axis_label : str
@@ -57,7 +59,10 @@ def plot_mixing_profile(profiles: dict, *, weighting: str = "flow", target: floa
             else:
                 suffix = " (area-weighted)"
         ordered = table.sort_values("position")
-        ax.plot(ordered["position"], ordered[column], marker="o", markersize=3, label=f"{label}{suffix}")
+        (line,) = ax.plot(ordered["position"], ordered[column], marker="o", markersize=3, label=f"{label}{suffix}")
+        if "mixing_index_inflow" in ordered and ordered["mixing_index_inflow"].notna().any():
+            ax.plot(ordered["position"], ordered["mixing_index_inflow"], linestyle=":", marker="x", markersize=3,
+                    color=line.get_color(), label=f"{label}, against the inflow mean")
     if target is not None:
         ax.axhline(target, color="0.4", linestyle="--", linewidth=1, label=f"target {target:g}")
     ax.set_xlabel(axis_label)

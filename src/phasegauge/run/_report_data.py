@@ -11,8 +11,9 @@ import numpy as np
 
 from ..model.axes import AXIS_NAMES
 
-__all__ = ["series_record", "series_input_files", "interface_snapshots", "measure_report_data",
+__all__ = ["series_record", "series_input_files", "interface_snapshots", "measure_report_data", "measured_as",
            "package_version"]
+
 
 def package_version() -> str:
     """The phasegauge version that runs, from the installed package's metadata (``"unknown"`` without one).
@@ -47,6 +48,25 @@ def series_record(series) -> dict:
     if getattr(series, "sort_by_time", False):
         record["order"] = "by the times in the files (sort_by_time)"
     return record
+
+
+def measured_as(results, *, keep_3d: bool = False) -> dict:
+    """How the steps were measured: ``dimension`` and, for a quasi-2D mesh, ``depth`` and ``measured_as``.
+
+    A mesh one cell thick is measured per unit depth as 2D (its steps carry a ``depth``).
+    """
+    done = [r for r in results if getattr(r, "skipped", None) is None and getattr(r, "dimension", 0)]
+    if not done:
+        return {}
+    out = {"dimension": int(done[0].dimension)}
+    depth = next((r.metrics["depth"] for r in done if "depth" in (r.metrics or {})), None)
+    if depth is not None:
+        out["depth"] = float(depth)
+        out["measured_as"] = (f"2D per unit depth: the 3D mesh is one cell thick (depth {depth:.6g}); lengths, "
+                              "areas and circularity of its face plane")
+    elif keep_3d:
+        out["measured_as"] = "3D (--keep-3d)"
+    return out
 
 
 def series_input_files(series, results=()) -> list:
@@ -102,6 +122,7 @@ def measure_report_data(series, result) -> dict:
     sources = [r.field_source for r in results if getattr(r, "field_source", "")]
     if sources:
         record["field_read"] = sources[0]
+    record.update(measured_as(results, keep_3d=getattr(result.options, "keep_3d", False)))
     return {
         "series": record,
         "inputs": series_input_files(series, results),

@@ -78,6 +78,9 @@ class MeasureOptions:
     sort_by_time : bool
         Order the steps by the times stored in their files instead of by their
         names (default: refuse a series whose times do not increase).
+    keep_3d : bool
+        Measure a mesh one cell thick (quasi-2D) as 3D; by default it is
+        measured per unit depth as 2D on its lower face plane.
     """
 
     field: str
@@ -101,6 +104,7 @@ class MeasureOptions:
     strict: bool = False
     field_location: str = "auto"
     sort_by_time: bool = False
+    keep_3d: bool = False
 
     def __post_init__(self):
         set_ = object.__setattr__

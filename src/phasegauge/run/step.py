@@ -104,21 +104,42 @@ def _cells(count: int) -> str:
 
 
 def step_velocity(step, options):
-    """Velocity of the step on cells and on points, or (None, None).
+    """Velocity of the step on cells and on points, and where the file has it, or (None, None, None).
 
     Each side is converted only when an analysis of the run uses it: droplets use cell values,
-    the boundary flux and cross sections point values.
+    the boundary flux and cross sections the file's own values (a cell-centred solver's cell
+    values are never averaged onto points for them).
     """
     if options.velocity is None:
-        return None, None
+        return None, None, None
     values, location = vector_field(step.fields, options.velocity, where=step.info.where,
                                     fix="name the velocity field with --velocity, or leave it out")
     mesh = step.mesh
-    need_points = "conservation" in options.analyses or (
-        "mixing" in options.analyses and options.section_axis is not None)
     if location == "cell":
-        return values, (mesh.cell_to_point(values) if need_points else None)
-    return (mesh.point_to_cell(values) if "droplets" in options.analyses else None), values
+        return values, None, location
+    return (mesh.point_to_cell(values) if "droplets" in options.analyses else None), values, location
+
+
+def flatten_step(step, options):
+    """The step on the 2D mesh of its lower plane when its mesh is one cell thick (quasi-2D).
+
+    Returns the step (a new one on the 2D mesh, or the step itself: with
+    ``options.keep_3d``, or a mesh that is not one cell thick) and the
+    :class:`~phasegauge.model.quasi2d.Quasi2D` record or None. Cell data carries over
+    unchanged (the cells keep their order); point data is the lower plane's.
+    """
+    if getattr(options, "keep_3d", False) or step.mesh.dimension != 3:
+        return step, None
+    from dataclasses import replace
+
+    from ..model.quasi2d import one_cell_thick
+
+    flat = one_cell_thick(step.mesh)
+    if flat is None:
+        return step, None
+    fields = replace(step.fields, point_data={name: np.asarray(values)[flat.points]
+                                              for name, values in step.fields.point_data.items()})
+    return replace(step, mesh=flat.mesh, fields=fields), flat
 
 
 def analyse_step(step, options, *, contour_dir: str | None = None, reported_meshes: set | None = None) -> StepResult:
@@ -135,6 +156,7 @@ def analyse_step(step, options, *, contour_dir: str | None = None, reported_mesh
     """
     from ..analysis import conservation, droplets as droplets_mod, interface, mixing
 
+    step, flat = flatten_step(step, options)
     mesh = step.mesh
     ind = make_indicator(mesh, step.fields, options.field, value_range=options.value_range,
                          phase=options.phase, where=step.info.where, field_location=options.field_location)
@@ -142,18 +164,23 @@ def analyse_step(step, options, *, contour_dir: str | None = None, reported_mesh
         raise InputError(f"field '{options.field}' has no finite values (all NaN or Inf)", where=step.info.where,
                          fix="the solver may have diverged at this step")
     check_mesh(mesh, step.info.where, reported=reported_meshes)
-    u_cell, u_point = step_velocity(step, options)
+    u_cell, u_point, u_location = step_velocity(step, options)
     result = StepResult(step.index, step.time, step.info.path, mesh_signature=mesh.signature,
                         dimension=int(mesh.dimension),
                         outline=MeshOutline.of(mesh, centroids="droplets" in options.analyses))
     result.extra = options.step_extra(step, ind)
     result.field_source = ind.source
     m = {"step": step.index, "time": step.time}
+    if flat is not None:  # measured per unit depth: say so in the steps table
+        m["depth"] = float(flat.depth)
     if "conservation" in options.analyses:
         m.update(conservation.conservation_metrics(mesh, ind, densities=options.densities))
         m.update(conservation.boundedness(mesh, ind))
-        if u_point is not None:
-            flux = conservation.open_boundary_flux(mesh, u_point, ind, velocity_location="point")
+        if u_location is not None:
+            # the boundary flux takes the velocity where the file has it: a cell-centred solver's
+            # own cell values on its boundary faces, never values averaged onto wall points
+            flux = conservation.open_boundary_flux(
+                mesh, u_cell if u_location == "cell" else u_point, ind, velocity_location=u_location)
             m.update({k: v for k, v in flux.items() if k != "open_boundary"})
             m["open_boundary"] = bool(flux["open_boundary"])
     contour = extremes = None
@@ -185,8 +212,10 @@ def analyse_step(step, options, *, contour_dir: str | None = None, reported_mesh
         if options.section_axis is not None:
             profile = mixing.cross_sections(mesh, ind, axis=options.section_axis,
                                             positions=options.section_positions,
-                                            count=options.section_count, velocity=u_point)
-            weighting = "flow" if u_point is not None else "area"
+                                            count=options.section_count,
+                                            velocity=u_cell if u_location == "cell" else u_point,
+                                            velocity_location=u_location)
+            weighting = "flow" if u_location is not None else "area"
             m["mixing_length"] = mixing.mixing_length(profile, target=options.mixing_target,
                                                       weighting=weighting)
             profile.insert(0, "time", step.time)

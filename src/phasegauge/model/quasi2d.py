@@ -1,0 +1,152 @@
+"""Quasi-2D meshes: a 3D mesh one cell thick, measured per unit depth as 2D.
+
+Finite-volume solvers run 2D cases on a 3D mesh one cell thick (hexahedra and
+wedges between two planes, with "empty" or symmetry patches front and back).
+Measured as 3D, the interface is an area, droplets have a sphericity and the
+resolution rules see 3D cell sizes. :func:`one_cell_thick` recognises such a
+mesh and builds the 2D mesh of its lower face plane (quads from hexahedra,
+triangles from wedges, in the same cell order), so cell data carries over
+unchanged and every analysis sees a 2D mesh: lengths, areas and circularities
+per unit depth.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+
+import numpy as np
+
+from .cells import FACES
+from .mesh import Mesh
+
+__all__ = ["Quasi2D", "one_cell_thick", "flat_mesh_if_built", "PLANE_TOLERANCE"]
+
+#: points lie on a plane when within this fraction of the mesh's largest extent of it
+PLANE_TOLERANCE = 1e-9
+
+#: the 2D cell of each prism cell type, and the corner count of its face on a plane
+_PRISMS = {"hexahedron": ("quad", 4), "wedge": ("triangle", 3)}
+
+
+@dataclass(frozen=True)
+class Quasi2D:
+    """The 2D mesh of a mesh one cell thick.
+
+    Attributes
+    ----------
+    mesh : Mesh
+        The 2D mesh on the lower plane; its cells are the 3D cells, in order.
+    axis : int
+        The thin axis (0, 1, 2 for x, y, z).
+    depth : float
+        Distance between the two planes, in mesh length units.
+    points : ndarray of shape (n_points_2d,), int64
+        Index of each 2D point among the 3D mesh's points (point data of the
+        3D mesh restricted to the lower plane: ``values[points]``).
+    """
+
+    mesh: Mesh
+    axis: int
+    depth: float
+    points: np.ndarray
+
+    @property
+    def axis_name(self) -> str:
+        return "xyz"[self.axis]
+
+    def record(self) -> dict:
+        """A plain record for tables, the manifest and the report."""
+        return {"dimension": 2, "quasi_2d": True, "thin_axis": self.axis_name, "depth": float(self.depth)}
+
+
+def one_cell_thick(mesh: Mesh) -> Quasi2D | None:
+    """The 2D mesh of ``mesh`` when it is one cell thick, else None (cached on the mesh).
+
+    Parameters
+    ----------
+    mesh : Mesh
+
+    Returns
+    -------
+    Quasi2D or None
+        None unless: the mesh is 3D, every cell is a hexahedron or a wedge,
+        all used points lie on two planes normal to x, y or z (within
+        :data:`PLANE_TOLERANCE` of the largest extent), every cell has one face
+        on each plane (its corners split half and half), and each cell's volume
+        is its lower face's area times the depth (a straight extrusion, to
+        1e-6 relative).
+
+    Notes
+    -----
+    Point data of the 2D mesh is the lower plane's (a 2D solver writes the
+    same values on both planes). A lower face whose corners run clockwise in
+    the plane's axes is reversed (first corner kept), so all 2D cells are
+    counter-clockwise.
+    """
+    return mesh.memo("quasi_2d", lambda: _build(mesh))
+
+
+def flat_mesh_if_built(mesh: Mesh) -> Mesh | None:
+    """The 2D mesh :func:`one_cell_thick` already built for ``mesh``, or None (builds nothing)."""
+    flat = mesh.memo("quasi_2d", lambda: None, keep=False)
+    return None if flat is None else flat.mesh
+
+
+def _build(mesh: Mesh) -> Quasi2D | None:
+    if mesh.dimension != 3 or any(b.cell_type not in _PRISMS for b in mesh.blocks):
+        return None
+    used = mesh.used_points
+    if used.size == 0:
+        return None
+    P = mesh.points[used]
+    extent = np.ptp(P, axis=0)
+    tolerance = PLANE_TOLERANCE * max(float(extent.max()), 1e-300)
+    for axis in np.argsort(extent, kind="stable"):  # the thinnest axis first
+        lo, hi = float(P[:, axis].min()), float(P[:, axis].max())
+        if hi - lo <= tolerance:
+            return None
+        values = P[:, axis]
+        if not np.all((np.abs(values - lo) <= tolerance) | (np.abs(values - hi) <= tolerance)):
+            continue
+        built = _lower_faces(mesh, int(axis), lo, hi, tolerance)
+        if built is not None:
+            return built
+    return None
+
+
+def _lower_faces(mesh: Mesh, axis: int, lo: float, hi: float, tolerance: float) -> Quasi2D | None:
+    """The 2D mesh of the faces on the plane at ``lo``, or None when a cell has none."""
+    plane = [a for a in range(3) if a != axis]
+    blocks = []
+    for block in mesh.blocks:
+        cell_type, k = _PRISMS[block.cell_type]
+        conn = block.connectivity
+        on_lo = np.abs(mesh.points[conn, axis] - lo) <= tolerance
+        if not np.all(on_lo.sum(axis=1) == k):
+            return None
+        lower = np.full((len(conn), k), -1, dtype=np.int64)
+        for face in FACES[block.cell_type]:
+            if len(face) != k:
+                continue
+            here = np.all(on_lo[:, list(face)], axis=1) & (lower[:, 0] < 0)
+            lower[here] = conn[here][:, list(face)]
+        if np.any(lower[:, 0] < 0):
+            return None
+        # counter-clockwise in the plane's axes: reverse the others, keep the first corner
+        xy = mesh.points[lower][:, :, plane]
+        twice_area = np.sum(xy[:, :, 0] * np.roll(xy[:, :, 1], -1, axis=1)
+                            - np.roll(xy[:, :, 0], -1, axis=1) * xy[:, :, 1], axis=1)
+        flip = twice_area < 0
+        lower[flip] = lower[flip][:, [0] + list(range(k - 1, 0, -1))]
+        blocks.append((cell_type, lower))
+    keep = np.unique(np.concatenate([b[1].ravel() for b in blocks]))
+    number = np.full(mesh.n_points, -1, dtype=np.int64)
+    number[keep] = np.arange(keep.size)
+    points = mesh.points[keep].copy()
+    points[:, axis] = lo
+    flat = Mesh(points, [(t, number[c]) for t, c in blocks])
+    depth = hi - lo
+    volumes = mesh.cell_measures
+    if not np.allclose(flat.cell_measures * depth, volumes, rtol=1e-6, atol=0.0):
+        return None
+    return Quasi2D(flat, axis, depth, keep)

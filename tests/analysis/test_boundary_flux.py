@@ -1,0 +1,139 @@
+"""Boundary flux from cell values: closed boxes, channels and the drift closure.
+
+Outside references: the stream-function box flow has u.n = 0 on every wall (analytic); the
+Poiseuille profile's flow rate int_0^1 6 U y (1 - y) dy = U and the midpoint rule's error
+h^2/24 int f'' (Davis & Rabinowitz, Methods of Numerical Integration, 1984, sec. 2.6).
+"""
+
+import numpy as np
+import pandas as pd
+import pytest
+
+from phasegauge.analysis.conservation import conservation_metrics, drift_columns, open_boundary_flux
+from phasegauge.meshgen import grid_mesh, to_meshio
+
+
+def _stream_function_box(mesh):
+    # psi = sin^2(pi x) sin^2(pi y) / pi: u = (sin^2(pi x) sin(2 pi y), -sin(2 pi x) sin^2(pi y)),
+    # divergence free, u.n = 0 on the walls of the unit square [analytic]
+    x, y = mesh.cell_centroids[:, 0], mesh.cell_centroids[:, 1]
+    return np.stack([np.sin(np.pi * x) ** 2 * np.sin(2 * np.pi * y),
+                     -np.sin(2 * np.pi * x) * np.sin(np.pi * y) ** 2, np.zeros_like(x)], axis=1)
+
+
+@pytest.mark.parametrize("kind,jitter", [("quad", 0.0), ("triangle", 0.0), ("mixed", 0.2), ("polygon", 0.0)])
+def test_closed_stream_function_box_on_cells_has_no_open_face(kind, jitter):
+    # regression: wall cells of a cell-centred velocity carry u.n ~ (pi h / 2)^2 (not a flux);
+    # the whole box was reported open and a net outflow appeared
+    mesh = grid_mesh((32, 32), kind=kind, jitter=jitter, seed=3)
+    u = _stream_function_box(mesh)
+    c = (mesh.cell_centroids[:, 0] < 0.3).astype(float)
+    out = open_boundary_flux(mesh, u, c, velocity_location="cell", c_location="cell")
+    assert out["open_boundary"] is False and out["open_boundary_area"] == 0.0
+    assert out["boundary_outflow"] == 0.0 and out["boundary_phase_outflow"] == 0.0
+
+
+def test_closed_box_at_round_off_speed_is_closed():
+    # the reversed vortex at t = T/2: the whole field is ~1e-17 (cos(pi/2)); still no open face
+    mesh = grid_mesh((16, 16))
+    u = _stream_function_box(mesh) * np.cos(np.pi / 2)
+    assert open_boundary_flux(mesh, u, velocity_location="cell")["open_boundary"] is False
+
+
+@pytest.mark.parametrize("n", [16, 32])
+def test_poiseuille_channel_flux_on_cells(n):
+    # u = (6 U y (1 - y), 0) through [0, 2] x [0, 1] with U = 0.7: flow rate U in and out
+    # [analytic]; on cells the faces take midpoint values: sum = U (1 + h^2 / 2) exactly for this
+    # quadratic (midpoint rule error -h^2/24 int f'' with f'' = -12 U) [Davis & Rabinowitz 1984]
+    mesh = grid_mesh((2 * n, n), [(0, 2), (0, 1)])
+    h = 1.0 / n
+    U = 0.7
+    x, y = mesh.cell_centroids[:, 0], mesh.cell_centroids[:, 1]
+    u = np.stack([6 * U * y * (1 - y), np.zeros_like(y)], axis=1)
+    c = (x < 1.0).astype(float)  # the phase fills the inlet half: it enters, nothing leaves yet
+    out = open_boundary_flux(mesh, u, c, velocity_location="cell", c_location="cell")
+    assert out["open_boundary"] is True
+    assert out["open_boundary_area"] == pytest.approx(2.0, rel=1e-12)  # inlet and outlet, not the walls
+    assert out["boundary_outflow"] == pytest.approx(0.0, abs=1e-12)
+    assert out["boundary_phase_outflow"] == pytest.approx(-U * (1 + h * h / 2), rel=1e-12)
+    assert abs(out["boundary_phase_outflow"] + U) <= U * h * h / 2 + 1e-12
+
+
+def test_poiseuille_channel_on_triangles_within_quadrature_error():
+    mesh = grid_mesh((40, 20), [(0, 2), (0, 1)], kind="triangle")
+    x, y = mesh.cell_centroids[:, 0], mesh.cell_centroids[:, 1]
+    u = np.stack([6 * y * (1 - y), np.zeros_like(y)], axis=1)
+    out = open_boundary_flux(mesh, u, (x < 1.0).astype(float), velocity_location="cell", c_location="cell")
+    h = 1 / 20
+    # the inlet and outlet, less at most the two corner faces of each (where u.n falls towards the
+    # wall inside one cell and the face reads as wall: their flux is O(h^2)), never the walls
+    assert 2.0 - 4 * h - 1e-12 <= out["open_boundary_area"] <= 2.0 + 1e-12
+    # triangle centroids sit h/3 off the face centres: the error stays O(h^2) (here below 2 h^2) [midpoint-type rule]
+    assert out["boundary_phase_outflow"] == pytest.approx(-1.0, abs=2 * h ** 2)
+
+
+def test_phase_volume_change_plus_outflow_closes():
+    # plug flow u = (1, 0) through [0, 1]^2; c = 1 for x < 0.5 + t: the front moves with the flow
+    # and phase enters at x = 0 at rate 1, so V = 0.5 + t and V + int outflow dt - V0 = 0 [analytic].
+    # The front sits on cell faces at the chosen times, so cell values are exact.
+    mesh = grid_mesh((20, 10))
+    u = np.tile([1.0, 0.0, 0.0], (mesh.n_cells, 1))
+    rows = []
+    for t in (0.0, 0.1, 0.2, 0.35):
+        c = (mesh.cell_centroids[:, 0] < 0.5 + t).astype(float)
+        flux = open_boundary_flux(mesh, u, c, velocity_location="cell", c_location="cell")
+        rows.append({"time": t, "phase_volume": conservation_metrics(mesh, c)["phase_volume"],
+                     "open_boundary": flux["open_boundary"],
+                     "boundary_phase_outflow": flux["boundary_phase_outflow"]})
+    table = drift_columns(pd.DataFrame(rows))
+    np.testing.assert_allclose(table["boundary_phase_outflow"], -1.0, rtol=1e-12)
+    np.testing.assert_allclose(table["phase_volume_drift_closed"], 0.0, atol=1e-12)
+    assert table["phase_volume_drift"].iloc[-1] == pytest.approx(0.35 / 0.5)
+
+
+def test_no_outflow_columns_for_a_closed_series():
+    table = drift_columns(pd.DataFrame({"time": [0.0, 1.0], "phase_volume": [1.0, 0.99],
+                                        "open_boundary": [False, False],
+                                        "boundary_phase_outflow": [0.0, 0.0]}))
+    assert "phase_volume_drift_closed" not in table and "phase_volume_outflow" not in table
+
+
+def test_closed_box_run_has_no_open_boundary_finding(tmp_path):
+    # end to end: cell velocity of the stream-function box, the drift plot gets no outflow curve
+    from phasegauge import measure
+
+    mesh = grid_mesh((24, 24))
+    u = _stream_function_box(mesh)
+    for k in range(3):
+        c = (np.hypot(mesh.cell_centroids[:, 0] - 0.5, mesh.cell_centroids[:, 1] - 0.6) < 0.2 + 0.01 * k)
+        to_meshio(mesh, cell_data={"c": c.astype(float), "velocity": u},
+                  field_data={"TimeValue": np.array([0.1 * k])}).write(tmp_path / f"box_{k}.vtu")
+    res = measure(tmp_path, "c", velocity="velocity", analyses=("conservation",))
+    assert not res.steps["open_boundary"].any()
+    assert (res.steps["boundary_outflow"] == 0.0).all()
+    assert "phase_volume_drift_closed" not in res.steps
+    assert not any(f.kind == "open_boundary" for f in res.findings)
+
+
+@pytest.mark.parametrize("kind", ["hexahedron", "wedge", "tetra", "pyramid", "mixed"])
+def test_closed_box_3d_on_cells(kind):
+    # the same stream-function flow in the unit cube, no z velocity: every wall closed [analytic]
+    mesh = grid_mesh((10, 10, 4), kind=kind)
+    u = _stream_function_box(mesh)
+    out = open_boundary_flux(mesh, u, velocity_location="cell")
+    assert out["open_boundary"] is False and out["boundary_outflow"] == 0.0
+
+
+@pytest.mark.parametrize("kind", ["hexahedron", "tetra"])
+def test_square_duct_flow_3d_on_cells(kind):
+    # u = (36 y (1 - y) z (1 - z), 0, 0) through the unit cube: flow rate int int = 36/36 = 1 in and
+    # out [analytic]; cell values make a midpoint-type rule, error O(h^2)
+    n = 10
+    mesh = grid_mesh((n, n, n), kind=kind)
+    x, y, z = mesh.cell_centroids.T
+    u = np.stack([36 * y * (1 - y) * z * (1 - z), 0 * y, 0 * y], axis=1)
+    out = open_boundary_flux(mesh, u, (x < 0.5).astype(float), velocity_location="cell", c_location="cell")
+    h = 1 / n
+    # inlet and outlet, less at most a ring of faces at their edges (where u.n falls to the wall in one cell)
+    assert 2 - 8 * h - 1e-12 <= out["open_boundary_area"] <= 2 + 1e-12
+    assert out["boundary_phase_outflow"] == pytest.approx(-1.0, abs=2 * h ** 2)

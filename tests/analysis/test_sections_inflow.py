@@ -1,0 +1,110 @@
+"""Mixing index against the inflow mean, and sections without net flow.
+
+Outside reference: Danckwerts (1952), I = sigma^2 / (a (1 - a)) with a the mean of the whole
+mixture and sigma^2 the mean square deviation from it, computed here by hand with numpy on the
+cell values the planes cut.
+"""
+
+import warnings
+
+import numpy as np
+import pytest
+
+from phasegauge.analysis.mixing import cross_sections, mixing_length
+from phasegauge.errors import PhasegaugeWarning
+from phasegauge.meshgen import grid_mesh
+
+
+def _channel(n=10):
+    # [0, 2] x [0, 1], Poiseuille u = 6 y (1 - y) on cells; the inflow half (x < 1) carries the phase
+    # in the band y < 0.3, the outlet half is a pure-phase section (c = 0.01) or a smooth profile
+    mesh = grid_mesh((2 * n, n), [(0, 2), (0, 1)])
+    x, y = mesh.cell_centroids[:, 0], mesh.cell_centroids[:, 1]
+    u = np.stack([6 * y * (1 - y), np.zeros_like(y), np.zeros_like(y)], axis=1)
+    return mesh, x, y, u
+
+
+def _danckwerts(c, weight, reference):
+    """I about a given mean, by hand: sum w (c - a)^2 / (sum w a (1 - a)) [Danckwerts 1952]."""
+    return float(np.sum(weight * (c - reference) ** 2) / (np.sum(weight) * reference * (1 - reference)))
+
+
+def test_pure_phase_section_is_not_mixed_against_the_inflow():
+    n = 10
+    mesh, x, y, u = _channel(n)
+    c = np.where(x < 1, (y < 0.3).astype(float), np.where(x < 1.5, 0.01, 0.4 + 0.3 * (y - 0.5)))
+    positions = [0.05, 1.25, 1.75]  # through cell centres: each plane cuts one column of cells
+    table = cross_sections(mesh, c, positions=positions, velocity=u, c_location="cell",
+                           velocity_location="cell")
+    # the hand computation on the cut cells: weights h u(y_j) (flow), the inflow mean from the first plane
+    column = np.sort(np.unique(np.round(y, 12)))
+    w = 6 * column * (1 - column) / n
+    c_in = (column < 0.3).astype(float)
+    m_in = float(np.sum(w * c_in) / np.sum(w))
+    assert table["inflow_mean"].iloc[0] == pytest.approx(m_in, rel=1e-12)
+    assert list(table["weighting"]) == ["flow"] * 3
+    expected = [_danckwerts(c_in, w, m_in), _danckwerts(np.full(n, 0.01), w, m_in),
+                _danckwerts(0.4 + 0.3 * (column - 0.5), w, m_in)]
+    np.testing.assert_allclose(table["segregation_intensity_inflow"], expected, rtol=1e-10)
+    np.testing.assert_allclose(table["mixing_index_inflow"], 1 - np.sqrt(expected), rtol=1e-10)
+    # the section through pure phase: its own-mean index reads "mixed", against the inflow it does not
+    assert table["mixing_index_flow"].iloc[1] == pytest.approx(1.0)
+    assert table["mixing_index_inflow"].iloc[1] < 0.5
+    # the inflow section itself: the same I as the own-mean one (the same mean)
+    assert table["segregation_intensity_inflow"].iloc[0] == pytest.approx(table["segregation_intensity_flow"].iloc[0])
+
+
+def test_inflow_mean_given_and_area_weights_without_velocity():
+    mesh, x, y, _ = _channel(8)
+    c = np.where(x < 1, y, 0.5)
+    table = cross_sections(mesh, c, positions=[0.5, 1.5], c_location="cell", inflow_mean=0.25)
+    assert (table["weighting"] == "area").all() and (table["inflow_mean"] == 0.25).all()
+    column = np.sort(np.unique(np.round(y, 12)))
+    h = np.full(8, 1 / 8)
+    np.testing.assert_allclose(table["segregation_intensity_inflow"],
+                               [_danckwerts(column, h, 0.25), _danckwerts(np.full(8, 0.5), h, 0.25)], rtol=1e-10)
+
+
+def test_no_net_flow_falls_back_to_area_weights_with_one_warning():
+    # u = (cos(2 pi y), 0) has zero net flow through every x plane [analytic: int_0^1 cos(2 pi y) dy = 0]
+    mesh = grid_mesh((8, 16))
+    y = mesh.points[:, 1]
+    u = np.stack([np.cos(2 * np.pi * y), np.zeros_like(y), np.zeros_like(y)], axis=1)
+    with warnings.catch_warnings(record=True) as caught:
+        warnings.simplefilter("always")
+        table = cross_sections(mesh, y, count=4, velocity=u, c_location="point")
+    ours = [w for w in caught if issubclass(w.category, PhasegaugeWarning)]
+    assert len(ours) == 1 and "no net flow through the section at x = 0.125" in str(ours[0].message)
+    assert (table["weighting"] == "area").all()
+    np.testing.assert_allclose(table["mixing_index_flow"], table["mixing_index"])
+    assert np.isfinite(mixing_length(table, weighting="flow", target=0.1))
+
+
+def test_sections_with_no_net_flow_do_not_abort_a_run(tmp_path):
+    # regression: --sections y --velocity velocity on a closed box aborted the whole run
+    from phasegauge import measure
+    from phasegauge.meshgen import to_meshio
+
+    mesh = grid_mesh((16, 16))
+    x, y = mesh.cell_centroids[:, 0], mesh.cell_centroids[:, 1]
+    u = np.stack([np.sin(np.pi * x) ** 2 * np.sin(2 * np.pi * y), -np.sin(2 * np.pi * x) * np.sin(np.pi * y) ** 2,
+                  np.zeros_like(x)], axis=1)
+    to_meshio(mesh, cell_data={"c": (x < 0.4).astype(float), "velocity": u}).write(tmp_path / "box.vtu")
+    with warnings.catch_warnings(record=True):
+        warnings.simplefilter("always")
+        res = measure(tmp_path / "box.vtu", "c", velocity="velocity", section_axis="y", section_count=4,
+                      analyses=("mixing",))
+    assert len(res.profiles) == 4 and "mixing_index_inflow" in res.profiles
+    assert any("no net flow through the section" in text for text in res.warnings)
+
+
+def test_inflow_is_the_first_section_along_the_flow():
+    # flow towards -x: the inflow section is the highest position [the same hand computation]
+    mesh, x, y, u = _channel(10)
+    c = np.where(x > 1, (y < 0.3).astype(float), 0.3)
+    table = cross_sections(mesh, c, positions=[0.55, 1.95], velocity=-u, c_location="cell",
+                           velocity_location="cell")
+    column = np.sort(np.unique(np.round(y, 12)))
+    w = 6 * column * (1 - column) / 10
+    m_in = float(np.sum(w * (column < 0.3)) / np.sum(w))
+    assert table["inflow_mean"].iloc[0] == pytest.approx(m_in, rel=1e-12)

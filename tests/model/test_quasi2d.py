@@ -1,0 +1,132 @@
+"""Quasi-2D meshes (one cell thick) measured per unit depth as 2D.
+
+Outside references: a circle of radius R has perimeter 2 pi R and area pi R^2, and circularity
+pi d / P = 1 (Hysing et al. 2009's definition); the same disc on the 2D quad mesh built directly
+(meshgen) gives the same tables.
+"""
+
+import os
+
+import numpy as np
+import pandas as pd
+import pytest
+
+from phasegauge import measure
+from phasegauge.meshgen import grid_mesh, to_meshio
+from phasegauge.model.quasi2d import one_cell_thick
+
+R = 0.25
+N = 64
+
+
+def _disc(mesh):
+    # a diffuse disc of radius R about (0.5, 0.5): c = 1/2 (1 - tanh((r - R) / w)), w = 1.5 h
+    x, y = mesh.cell_centroids[:, 0], mesh.cell_centroids[:, 1]
+    r = np.hypot(x - 0.5, y - 0.5)
+    return 0.5 * (1 - np.tanh((r - R) / (1.5 / N)))
+
+
+@pytest.mark.parametrize("kind,flat_kind", [("hexahedron", "quad"), ("wedge", "triangle")])
+def test_one_cell_thick_mesh_becomes_its_face_plane(kind, flat_kind):
+    mesh = grid_mesh((8, 6, 1), [(0, 1), (0, 0.75), (0, 0.1)], kind=kind)
+    flat = one_cell_thick(mesh)
+    direct = grid_mesh((8, 6), [(0, 1), (0, 0.75)], kind=flat_kind)
+    assert flat.axis == 2 and flat.depth == pytest.approx(0.1)
+    assert flat.record() == {"dimension": 2, "quasi_2d": True, "thin_axis": "z", "depth": pytest.approx(0.1)}
+    np.testing.assert_array_equal(flat.mesh.points, direct.points)
+    np.testing.assert_array_equal(flat.mesh.blocks[0].connectivity, direct.blocks[0].connectivity)
+    # per unit depth: cell volume / depth = cell area [analytic, straight extrusion]
+    np.testing.assert_allclose(mesh.cell_measures / flat.depth, flat.mesh.cell_measures, rtol=1e-12)
+
+
+def test_thin_along_x_and_shifted_planes():
+    mesh = grid_mesh((1, 5, 4), [(2.0, 2.05), (0, 1), (0, 1)])
+    flat = one_cell_thick(mesh)
+    assert flat.axis == 0 and flat.depth == pytest.approx(0.05)
+    assert flat.mesh.plane_axes == (1, 2)
+
+
+@pytest.mark.parametrize("shape,kind", [((4, 4, 2), "hexahedron"), ((4, 4, 1), "tetra"), ((4, 4, 1), "pyramid")])
+def test_thicker_or_other_cells_stay_3d(shape, kind):
+    assert one_cell_thick(grid_mesh(shape, kind=kind)) is None
+
+
+def _write(folder, mesh, c, name):
+    os.makedirs(folder, exist_ok=True)
+    for k in range(2):
+        to_meshio(mesh, cell_data={"c": c}, field_data={"TimeValue": np.array([0.5 * k])}).write(
+            os.path.join(folder, f"{name}_{k}.vtu"))
+    return folder
+
+
+def test_disc_column_measured_per_unit_depth(tmp_path):
+    hexes = grid_mesh((N, N, 1), [(0, 1), (0, 1), (0, 0.02)])
+    quads = grid_mesh((N, N))
+    a = measure(_write(tmp_path / "column", hexes, _disc(hexes), "column"), "c",
+                analyses=("interface", "droplets", "conservation"))
+    b = measure(_write(tmp_path / "disc", quads, _disc(quads), "disc"), "c",
+                analyses=("interface", "droplets", "conservation"))
+    steps = a.steps
+    np.testing.assert_allclose(steps["depth"], 0.02, rtol=1e-12)
+    # analytic, per unit depth: interface length 2 pi R, one droplet of circularity 1, and the
+    # area int c dA = pi R^2 + pi^3 w^2 / 12 of the tanh disc (int_0^inf s (1 - tanh(s/w)) ds =
+    # pi^2 w^2 / 24 on each side of r = R) [calc]
+    w = 1.5 / N
+    assert steps["phase_volume"].iloc[0] == pytest.approx(np.pi * R ** 2 + np.pi ** 3 * w ** 2 / 12, rel=1e-3)
+    assert steps["interface_size"].iloc[0] == pytest.approx(2 * np.pi * R, rel=2e-3)
+    assert (steps["droplet_count"] == 1).all()
+    assert a.droplets["circularity"].iloc[0] == pytest.approx(1.0, abs=5e-3)
+    assert a.droplets["sphericity"].isna().all()
+    # the same disc on the 2D quad mesh: the same tables, bit for bit
+    pd.testing.assert_frame_equal(steps.drop(columns=["depth"]), b.steps, check_exact=True)
+    pd.testing.assert_frame_equal(a.droplets, b.droplets, check_exact=True)
+
+
+def test_keep_3d_measures_the_slab(tmp_path):
+    hexes = grid_mesh((16, 16, 1), [(0, 1), (0, 1), (0, 0.1)])
+    res = measure(_write(tmp_path / "slab", hexes, _disc(hexes), "slab"), "c", keep_3d=True,
+                  analyses=("conservation",))
+    assert "depth" not in res.steps
+    w = 1.5 / N
+    assert res.steps["phase_volume"].iloc[0] == pytest.approx(0.1 * (np.pi * R ** 2 + np.pi ** 3 * w ** 2 / 12),
+                                                              rel=2e-2)
+
+
+def test_inspect_manifest_and_report_say_quasi_2d(tmp_path):
+    import json
+
+    from phasegauge.io.describe import describe_series, format_description
+
+    hexes = grid_mesh((16, 16, 1), [(0, 1), (0, 1), (0, 0.05)])
+    folder = _write(tmp_path / "slab", hexes, _disc(hexes), "slab")
+    desc = describe_series(folder)
+    assert desc["quasi_2d"] == {"dimension": 2, "quasi_2d": True, "thin_axis": "z", "depth": pytest.approx(0.05)}
+    assert "quasi-2D    one cell thick along z" in format_description(desc)
+    out = tmp_path / "out"
+    measure(folder, "c", out=out, analyses=("interface", "conservation"))
+    manifest = json.load(open(out / "manifest.json"))
+    assert manifest["series"]["dimension"] == 2 and manifest["series"]["depth"] == pytest.approx(0.05)
+    assert "per unit depth" in open(out / "report.html").read()
+
+
+def test_column_with_cell_velocity_and_point_data_matches_the_2d_run(tmp_path):
+    # a one-cell-thick slab with the indicator on points (both planes alike, as a 2D solver writes
+    # it) and a cell velocity with a zero z component: the same tables as the 2D quad mesh
+    hexes = grid_mesh((24, 24, 1), [(0, 1), (0, 1), (0, 0.1)])
+    quads = grid_mesh((24, 24))
+
+    def write(folder, mesh):
+        os.makedirs(folder, exist_ok=True)
+        x, y = mesh.points[:, 0], mesh.points[:, 1]
+        c = 0.5 * (1 - np.tanh((np.hypot(x - 0.5, y - 0.4) - R) / 0.04))
+        cx, cy = quads.cell_centroids[:, 0], quads.cell_centroids[:, 1]  # the same values on both (cell order)
+        u = np.stack([np.sin(np.pi * cx) ** 2 * np.sin(2 * np.pi * cy),
+                      -np.sin(2 * np.pi * cx) * np.sin(np.pi * cy) ** 2, 0 * cx], axis=1)
+        to_meshio(mesh, point_data={"c": c}, cell_data={"U": u}).write(os.path.join(folder, "s.vtu"))
+        return os.path.join(folder, "s.vtu")
+
+    a = measure(write(tmp_path / "slab", hexes), "c", velocity="U")
+    b = measure(write(tmp_path / "flat", quads), "c", velocity="U")
+    pd.testing.assert_frame_equal(a.steps.drop(columns=["depth"]), b.steps, check_exact=True)
+    pd.testing.assert_frame_equal(a.droplets, b.droplets, check_exact=True)
+    assert not a.steps["open_boundary"].any()  # the front and back planes are gone, the walls closed
