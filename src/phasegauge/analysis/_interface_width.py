@@ -38,7 +38,7 @@ _MOMENT_RANGE = 10.0
 METRIC_KEYS = ("interface_size", "interface_width", "interface_width_cells", "width_threshold_free",
                "interface_eps", "width_second_moment", "interface_variance", "width_profile_median",
                "width_profile_p90", "widest_x", "widest_y", "widest_z",
-               "under_resolved_interface_fraction")
+               "under_resolved_interface_fraction", "interface_cells_across")
 
 
 # --------------------------------------------------------------------------- arguments
@@ -165,6 +165,9 @@ def interface_metrics(mesh: Mesh, indicator, *, level: float = 0.5, contour: Con
         ``under_resolved_interface_fraction`` : float in [0, 1]; share of the
         interface size with fewer than 4 cells across 0.1 < c < 0.9 (common
         practice), the local 10-90 % thickness taken as ln 9 / (2 |grad c|).
+        ``interface_cells_across`` : float; length/area-weighted median of
+        that local 10-90 % thickness in cells (what tells a diffuse
+        interface from a sharp one, :func:`interface_kind`).
         All NaN when c does not cross ``level``.
 
     Raises
@@ -270,6 +273,7 @@ def _metrics(work: _Work, max_samples: int):
     with np.errstate(divide="ignore"):
         across = (_WIDTH_10_90_PER_EPS / (4.0 * np.linalg.norm(g_el, axis=1))) / h
     under = float(sizes[~(across >= RESOLVED_CELLS)].sum() / size)
+    cells_across = weighted_quantile(np.nan_to_num(across, nan=1e30, posinf=1e30), sizes, 0.5)
     values, dist, known = integrals.at_points(dist)
     table = _profile_table(mesh, geometry, values, dist, known & np.isfinite(dist), width, max_samples)
     local = table["width"].to_numpy(dtype=float)
@@ -291,5 +295,6 @@ def _metrics(work: _Work, max_samples: int):
         "width_profile_p90": weighted_quantile(local, w, 0.9),
         "widest_x": widest[0], "widest_y": widest[1], "widest_z": widest[2],
         "under_resolved_interface_fraction": under,
+        "interface_cells_across": float(cells_across) if np.isfinite(cells_across) else float("nan"),
     }
     return metrics, table

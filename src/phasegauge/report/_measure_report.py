@@ -97,6 +97,7 @@ def write_measure_report(out, result, *, series: dict, inputs: list, snapshots: 
         "skipped_steps": result.skipped,
         "warnings": list(step_warnings),
         "flags": result.flags,
+        "interface_kind": (result.audit or {}).get("interface_kind"),
         "outputs": written + [f"contours/{c}" for c in contours],
         "timings": {"total_seconds": round(time.time() - started, 3),
                     "report_seconds": round(time.time() - t0, 3), **step_timings},
@@ -146,11 +147,19 @@ def _key_figures(result) -> list:
     add("mixing index, last step", "mixing_index", lambda v: v[-1])
     add("mixing length, last step", "mixing_length", lambda v: v[-1])
     audit = result.audit or {}
-    for key, label in (("D_num", "numerical diffusivity"), ("D_num_stderr", "numerical diffusivity, standard error"),
-                       ("D_ratio", "numerical / physical diffusivity")):
-        value = audit.get(key)
-        if value is not None and np.isfinite(float(value)):
-            pairs.append((label, value))
+    if audit.get("interface_kind") in ("diffuse", "sharp"):
+        cells = audit.get("cells_across")
+        pairs.append(("interface kind", f"{audit['interface_kind']} ({float(cells):.2g} cells across 10-90 %, "
+                                        "median over steps)"))
+    if audit.get("verdict"):
+        pairs.append(("diffusion audit", audit["verdict"]))
+    if audit.get("significant"):  # a diffusivity not distinguishable from 0 is no key figure
+        for key, label in (("D_num", "numerical diffusivity"),
+                           ("D_num_stderr", "numerical diffusivity, standard error"),
+                           ("D_ratio", "numerical / physical diffusivity")):
+            value = audit.get(key)
+            if value is not None and np.isfinite(float(value)):
+                pairs.append((label, value))
     return pairs
 
 
