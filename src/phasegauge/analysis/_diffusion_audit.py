@@ -151,7 +151,9 @@ def diffusion_audit(times, variances, *, cells_across=None, physical_diffusivity
         Relative growth of the width above which a significant slope counts
         as widening (default 0.05).
     confidence : float
-        One-sided confidence level of the slope test, in (0, 1).
+        Confidence level of the slope's interval, in (0, 1): the slope is
+        significant when its two-sided interval excludes 0 (Student's t,
+        n - 2 degrees of freedom).
 
     Returns
     -------
@@ -162,7 +164,7 @@ def diffusion_audit(times, variances, *, cells_across=None, physical_diffusivity
         sharp interface). ``D_num_stderr`` : its standard error.
         ``D_ratio`` : ``D_num / physical_diffusivity`` (NaN without one or
         when it is 0).
-        ``significant`` : bool; slope > 0 at ``confidence`` (Student's t).
+        ``significant`` : bool; the slope's interval at ``confidence`` lies above 0.
         ``widening`` : bool; not sharp, significant, and the measured width
         grown by more than ``growth_threshold``.
         ``r_squared`` : weighted coefficient of determination.
@@ -277,7 +279,7 @@ def diffusion_audit(times, variances, *, cells_across=None, physical_diffusivity
     intercept, slope, stderr, r_squared = _robust_fit(tf, vf)
     from scipy.special import stdtrit  # Student t quantile, as scipy.stats.t.ppf (whose import costs ~1 s)
 
-    quantile = float(stdtrit(tf.size - 2, float(confidence)))
+    quantile = float(stdtrit(tf.size - 2, 0.5 + 0.5 * float(confidence)))
     significant = bool(slope > quantile * stderr if stderr > 0 else slope > 0)
     widening = bool(significant and np.isfinite(growth) and growth > float(growth_threshold))
     D = 0.5 * slope
