@@ -153,3 +153,10 @@ def test_an_insignificant_fit_says_so():
     audit = diffusion_audit(t, v, cells_across=np.full(t.size, 6.0))
     assert not audit["significant"] and not audit["widening"]
     assert audit["verdict"].startswith("no significant widening")
+
+
+def test_a_narrowing_interface_is_worded_as_such():
+    t = np.linspace(0, 1, 8)
+    audit = diffusion_audit(t, 2e-4 - 1e-4 * t, cells_across=np.full(t.size, 6.0))
+    assert not audit["significant"] and not audit["widening"]
+    assert audit["verdict"].startswith("no widening: the interface narrows")

@@ -283,7 +283,10 @@ def diffusion_audit(times, variances, *, cells_across=None, physical_diffusivity
     significant = bool(slope > quantile * stderr if stderr > 0 else slope > 0)
     widening = bool(significant and np.isfinite(growth) and growth > float(growth_threshold))
     D = 0.5 * slope
-    if not significant:
+    if slope < -quantile * stderr:
+        verdict = (f"no widening: the interface narrows (fitted diffusivity {D:.3g} +- {0.5 * stderr:.2g}, "
+                   f"r^2 {r_squared:.2g})")
+    elif not significant:
         verdict = (f"no significant widening: the fitted diffusivity {D:.3g} +- {0.5 * stderr:.2g} "
                    f"(r^2 {r_squared:.2g}) is not distinguishable from 0")
     elif widening:

@@ -38,7 +38,7 @@ _MOMENT_RANGE = 10.0
 METRIC_KEYS = ("interface_size", "interface_width", "interface_width_cells", "width_threshold_free",
                "interface_eps", "width_second_moment", "interface_variance", "width_profile_median",
                "width_profile_p90", "widest_x", "widest_y", "widest_z",
-               "under_resolved_interface_fraction", "interface_cells_across")
+               "under_resolved_interface_fraction", "interface_cells_across", "bulk_c_low", "bulk_c_high")
 
 
 # --------------------------------------------------------------------------- arguments
@@ -247,6 +247,9 @@ def interface_metrics(mesh: Mesh, indicator, *, level: float = 0.5, contour: Con
         ``interface_cells_across`` : float; length/area-weighted median of
         that local 10-90 % thickness in cells (what tells a diffuse
         interface from a sharp one, :func:`interface_kind`).
+        ``bulk_c_low``, ``bulk_c_high`` : float; the bulk values of the two
+        phases the widths are taken between (:func:`bulk_plateaus`; 0 and 1
+        unless a plateau sits more than 1e-3 off).
         All NaN when c does not cross ``level``.
 
     Raises
@@ -343,7 +346,10 @@ def _metrics(work: _Work, max_samples: int):
     sizes = geometry.sizes
     h = mesh.cell_sizes[contour.cells]
     h_interface = float((sizes * h).sum() / size)
-    bound = max(_MOMENT_RANGE * eps, 4.0 * h_interface) if np.isfinite(eps) else np.inf
+    # (eps of the band volume: a low-level cloud of c away from the interface inflates the
+    # threshold-free eps, and would widen the range that then picks up more of that cloud)
+    band_eps = min(eps, width / WIDTH_PER_EPS) if np.isfinite(eps) else width / WIDTH_PER_EPS
+    bound = max(_MOMENT_RANGE * band_eps, 4.0 * h_interface) if np.isfinite(band_eps) else np.inf
     dist = integrals.distances(geometry, work.width_level, bound)
     m0, m1, m2 = integrals.moments(dist)
     variance = m2 / m0 - (m1 / m0) ** 2 if m0 > 0 else float("nan")
@@ -375,5 +381,6 @@ def _metrics(work: _Work, max_samples: int):
         "widest_x": widest[0], "widest_y": widest[1], "widest_z": widest[2],
         "under_resolved_interface_fraction": under,
         "interface_cells_across": float(cells_across) if np.isfinite(cells_across) else float("nan"),
+        "bulk_c_low": float(work.plateaus[0]), "bulk_c_high": float(work.plateaus[1]),
     }
     return metrics, table

@@ -153,7 +153,10 @@ def _key_figures(result) -> list:
                                         "median over steps)"))
     if audit.get("verdict"):
         pairs.append(("diffusion audit", audit["verdict"]))
-    if audit.get("significant"):  # a diffusivity not distinguishable from 0 is no key figure
+    r_squared = audit.get("r_squared")
+    fits = r_squared is not None and np.isfinite(float(r_squared)) and float(r_squared) >= 0.5
+    # a diffusivity not distinguishable from 0, or a line that explains little, is no key figure
+    if audit.get("significant") and (audit.get("widening") or fits):
         for key, label in (("D_num", "numerical diffusivity"),
                            ("D_num_stderr", "numerical diffusivity, standard error"),
                            ("D_ratio", "numerical / physical diffusivity")):
