@@ -74,3 +74,15 @@ def test_the_resolution_rule_is_for_diffuse_interfaces_only():
     diffuse = {"interface_kind": "diffuse", "cells_across": 3.0, "widening": False, "fit_from_time": 0.0}
     (flag,) = findings(steps, pd.DataFrame(), diffuse, options, [])
     assert flag.kind == "interface_under_resolved" and flag.text.startswith("diffuse interface under-resolved")
+
+
+def test_the_widening_finding_carries_the_audit_verdict_and_ratio():
+    import pandas as pd
+
+    audit = {"interface_kind": "diffuse", "widening": True, "D_num": 1.37e-3, "D_num_stderr": 1.6e-4,
+             "D_ratio": 13.7, "width_growth": 1.75,
+             "verdict": "interface keeps widening: numerical diffusivity 0.00137 +- 0.00016 (width +175 % first to last)"}
+    (flag,) = findings(pd.DataFrame({"time": [0.0]}), pd.DataFrame(), audit, MeasureOptions(field="c"), [])
+    assert flag.kind == "interface_widening"
+    assert flag.text == audit["verdict"] + "; 13.7 x the physical value"
+    assert flag.figures["numerical_diffusivity_stderr"] == 1.6e-4

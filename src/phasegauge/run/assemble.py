@@ -313,7 +313,7 @@ def findings(steps, droplets, audit: dict, options, skipped: list) -> list:
         text = audit.get("verdict") or "interface keeps widening"
         ratio = audit.get("D_ratio")
         if _number(ratio) is not None:
-            text += f" ({ratio:.3g} x the physical value)"
+            text += f"; {ratio:.3g} x the physical value"
         found.append(Finding("interface_widening", "warning", text,
                              {"numerical_diffusivity": _number(audit.get("D_num")),
                               "numerical_diffusivity_stderr": _number(audit.get("D_num_stderr")),
