@@ -43,5 +43,46 @@ def test_a_drift_finding_words_its_figures():
     options = MeasureOptions(field="c", drift_tolerance=1e-3)
     (drift,) = findings(steps, pd.DataFrame(), {}, options, [])
     assert drift == Finding("phase_volume_drift", "warning",
-                            "phase volume drifts by up to 2 % (tolerance 0.1 %)",
+                            "phase volume drifts by up to 2 % (tolerance 0.1 % of the first step's phase volume)",
                             {"largest_drift": 0.02, "tolerance": 1e-3})
+
+
+# Tolerances scaled to round-off (README, "Findings and their tolerances"): an overshoot volume
+# below 1e-9 x the domain volume is round-off (float64 carries ~1e-16 per cell value); so is a
+# drift below 1e-9 x domain volume / phase volume, whatever drift_tolerance says.
+def test_round_off_overshoot_and_drift_are_no_findings():
+    import pandas as pd
+
+    steps = pd.DataFrame({"time": [0.0, 1.0], "domain_volume": [1.0, 1.0], "phase_volume": [0.07, 0.07],
+                          "phase_volume_drift": [0.0, 3e-9], "overshoot_volume": [0.0, 1.5e-25],
+                          "c_min": [0.0, -6.6e-22], "c_max": [1.0, 1.0]})
+    options = MeasureOptions(field="c", drift_tolerance=1e-12)
+    assert findings(steps, pd.DataFrame(), {}, options, []) == []
+    steps["overshoot_volume"] = [0.0, 2e-9]
+    steps["phase_volume_drift"] = [0.0, 2e-8]  # above 1e-9 / 0.07 = 1.4e-8
+    kinds = [f.kind for f in findings(steps, pd.DataFrame(), {}, options, [])]
+    assert kinds == ["phase_volume_drift", "indicator_overshoot"]
+
+
+def test_the_resolution_rule_is_for_diffuse_interfaces_only():
+    import pandas as pd
+
+    steps = pd.DataFrame({"time": [0.0, 1.0], "under_resolved_interface_fraction": [1.0, 1.0]})
+    options = MeasureOptions(field="c")
+    sharp = {"interface_kind": "sharp", "cells_across": 2.2, "widening": False}
+    assert findings(steps, pd.DataFrame(), sharp, options, []) == []
+    diffuse = {"interface_kind": "diffuse", "cells_across": 3.0, "widening": False, "fit_from_time": 0.0}
+    (flag,) = findings(steps, pd.DataFrame(), diffuse, options, [])
+    assert flag.kind == "interface_under_resolved" and flag.text.startswith("diffuse interface under-resolved")
+
+
+def test_the_widening_finding_carries_the_audit_verdict_and_ratio():
+    import pandas as pd
+
+    audit = {"interface_kind": "diffuse", "widening": True, "D_num": 1.37e-3, "D_num_stderr": 1.6e-4,
+             "D_ratio": 13.7, "width_growth": 1.75,
+             "verdict": "interface keeps widening: numerical diffusivity 0.00137 +- 0.00016 (width +175 % first to last)"}
+    (flag,) = findings(pd.DataFrame({"time": [0.0]}), pd.DataFrame(), audit, MeasureOptions(field="c"), [])
+    assert flag.kind == "interface_widening"
+    assert flag.text == audit["verdict"] + "; 13.7 x the physical value"
+    assert flag.figures["numerical_diffusivity_stderr"] == 1.6e-4

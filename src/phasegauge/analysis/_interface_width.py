@@ -38,7 +38,7 @@ _MOMENT_RANGE = 10.0
 METRIC_KEYS = ("interface_size", "interface_width", "interface_width_cells", "width_threshold_free",
                "interface_eps", "width_second_moment", "interface_variance", "width_profile_median",
                "width_profile_p90", "widest_x", "widest_y", "widest_z",
-               "under_resolved_interface_fraction")
+               "under_resolved_interface_fraction", "interface_cells_across", "bulk_c_low", "bulk_c_high")
 
 
 # --------------------------------------------------------------------------- arguments
@@ -86,14 +86,93 @@ class _Work:
             raise OptionError(f"contour must be a Contour, found {type(contour).__name__}",
                               fix="pass the result of find_interface, or None")
         self.contour = contour
-        self.clipped = np.clip(self.c_point, 0.0, 1.0)
+        low, high, tail = bulk_plateaus(self.c_point, self.level)
+        self.plateaus = (low, high)
+        if (low, high) == (0.0, 1.0):
+            self.clipped = np.clip(self.c_point, 0.0, 1.0)
+            self.width_level = self.level
+        else:  # the estimators see the profile between the measured bulk values
+            self.clipped = np.clip((self.c_point - low) / (high - low), 0.0, 1.0)
+            self.width_level = (self.level - low) / (high - low)
         layout = _grid_tetrahedra(mesh)
         if layout is not None:
-            self.integrals = _GridBand(mesh, self.clipped, layout)
+            self.integrals = _GridBand(mesh, self.clipped, layout, cutoff=tail)
             return
         # the extremes of the clipped values are the clipped extremes: those of c will do
         lo, hi = extremes if extremes is not None else corner_extremes(mesh, self.c_point)
-        self.integrals = _SplitBand(mesh, self.clipped, (hi > _TAIL) & (lo < 1.0 - _TAIL))
+        if (low, high) != (0.0, 1.0):
+            lo, hi = (lo - low) / (high - low), (hi - low) / (high - low)
+        self.integrals = _SplitBand(mesh, self.clipped, (hi > tail) & (lo < 1.0 - tail))
+
+
+#: bulk values within this of 0 and 1 are taken as 0 and 1 (no rescaling)
+PLATEAU_TOLERANCE = 1e-3
+
+
+def bulk_plateaus(c_point: np.ndarray, level: float) -> tuple[float, float, float]:
+    """Bulk values of the two phases and the tail cut-off of the width integrals.
+
+    Parameters
+    ----------
+    c_point : ndarray of shape (n_points,)
+        Point values of the indicator (not clipped).
+    level : float
+        The contour level: values below belong to the low phase.
+
+    Returns
+    -------
+    low, high : float
+        The bulk value of each phase: starting from the side's extreme
+        (0.5th or 99.5th percentile), three times the median of the side's
+        values within 0.05. A side keeps its ideal value (0 or 1) when the
+        result moves more than 0.01 from its extreme (no plateau: the
+        inside of a thin filament), lies beyond 0.25 of the ideal, or lies
+        within three scaled MADs of those values of it (a smooth profile
+        still approaching its ideal, not a bulk sitting off it).
+        ``(0.0, 1.0)`` when both lie within ``PLATEAU_TOLERANCE`` (1e-3) of
+        0 and 1.
+    tail : float
+        Cells whose rescaled corner values all lie within ``tail`` of 0 or
+        of 1 are left out of the width integrals: 1e-6 with bulk values at
+        0 and 1; else three scaled MADs of the bulk values about their
+        plateau (the spread of bulk values between droplets, as the
+        Gibbs-Thomson shift of a Cahn-Hilliard run gives), at most 0.02.
+
+    Notes
+    -----
+    A Cahn-Hilliard run relaxes to bulk values off +-1 (curvature shifts
+    them; a bulk of 0.01 in c over the whole domain adds 0.01 x volume to
+    int c (1 - c) dV, which the threshold-free estimator reads as width).
+    The estimators then work on (c - low) / (high - low): the logistic
+    profile between any two plateaus gives its 5-95 % thickness between them.
+    """
+    c = np.asarray(c_point, dtype=np.float64)
+    c = c[np.isfinite(c)]
+    plateaus, spreads = [], []
+    for side, ideal, q in ((c[c < level], 0.0, 0.5), (c[c > level], 1.0, 99.5)):
+        if side.size == 0:
+            plateaus.append(ideal)
+            spreads.append(0.0)
+            continue
+        extreme = float(np.percentile(side, q))
+        g, near = extreme, side
+        for _ in range(3):
+            near = side[np.abs(side - g) < 0.05]
+            g = float(np.median(near))  # never empty: the extreme has neighbours within 0.05
+        spread = 1.4826 * float(np.median(np.abs(near - g)))
+        if abs(g - extreme) > 0.01 or abs(g - ideal) > 0.25 or abs(g - ideal) <= 3.0 * spread:
+            # no plateau on this side (the inside of a thin filament, a profile still
+            # approaching its ideal value): the ideal value
+            plateaus.append(ideal)
+            spreads.append(0.0)
+            continue
+        plateaus.append(g)
+        spreads.append(spread)
+    low, high = plateaus
+    if abs(low) <= PLATEAU_TOLERANCE and abs(high - 1.0) <= PLATEAU_TOLERANCE:
+        return 0.0, 1.0, _TAIL
+    tail = float(np.clip(3.0 * max(spreads) / (high - low), _TAIL, 0.02))
+    return low, high, tail
 
 
 def _check_extremes(mesh: Mesh, extremes) -> CornerExtremes | None:
@@ -165,6 +244,12 @@ def interface_metrics(mesh: Mesh, indicator, *, level: float = 0.5, contour: Con
         ``under_resolved_interface_fraction`` : float in [0, 1]; share of the
         interface size with fewer than 4 cells across 0.1 < c < 0.9 (common
         practice), the local 10-90 % thickness taken as ln 9 / (2 |grad c|).
+        ``interface_cells_across`` : float; length/area-weighted median of
+        that local 10-90 % thickness in cells (what tells a diffuse
+        interface from a sharp one, :func:`interface_kind`).
+        ``bulk_c_low``, ``bulk_c_high`` : float; the bulk values of the two
+        phases the widths are taken between (:func:`bulk_plateaus`; 0 and 1
+        unless a plateau sits more than 1e-3 off).
         All NaN when c does not cross ``level``.
 
     Raises
@@ -261,8 +346,11 @@ def _metrics(work: _Work, max_samples: int):
     sizes = geometry.sizes
     h = mesh.cell_sizes[contour.cells]
     h_interface = float((sizes * h).sum() / size)
-    bound = max(_MOMENT_RANGE * eps, 4.0 * h_interface) if np.isfinite(eps) else np.inf
-    dist = integrals.distances(geometry, work.level, bound)
+    # (eps of the band volume: a low-level cloud of c away from the interface inflates the
+    # threshold-free eps, and would widen the range that then picks up more of that cloud)
+    band_eps = min(eps, width / WIDTH_PER_EPS) if np.isfinite(eps) else width / WIDTH_PER_EPS
+    bound = max(_MOMENT_RANGE * band_eps, 4.0 * h_interface) if np.isfinite(band_eps) else np.inf
+    dist = integrals.distances(geometry, work.width_level, bound)
     m0, m1, m2 = integrals.moments(dist)
     variance = m2 / m0 - (m1 / m0) ** 2 if m0 > 0 else float("nan")
     # cells of the contour
@@ -270,6 +358,7 @@ def _metrics(work: _Work, max_samples: int):
     with np.errstate(divide="ignore"):
         across = (_WIDTH_10_90_PER_EPS / (4.0 * np.linalg.norm(g_el, axis=1))) / h
     under = float(sizes[~(across >= RESOLVED_CELLS)].sum() / size)
+    cells_across = weighted_quantile(np.nan_to_num(across, nan=1e30, posinf=1e30), sizes, 0.5)
     values, dist, known = integrals.at_points(dist)
     table = _profile_table(mesh, geometry, values, dist, known & np.isfinite(dist), width, max_samples)
     local = table["width"].to_numpy(dtype=float)
@@ -291,5 +380,7 @@ def _metrics(work: _Work, max_samples: int):
         "width_profile_p90": weighted_quantile(local, w, 0.9),
         "widest_x": widest[0], "widest_y": widest[1], "widest_z": widest[2],
         "under_resolved_interface_fraction": under,
+        "interface_cells_across": float(cells_across) if np.isfinite(cells_across) else float("nan"),
+        "bulk_c_low": float(work.plateaus[0]), "bulk_c_high": float(work.plateaus[1]),
     }
     return metrics, table

@@ -293,7 +293,7 @@ class _GridBand:
     grid points in C order (``RegularGrid.point_shape``).
     """
 
-    def __init__(self, mesh: Mesh, clipped: np.ndarray, layout: dict):
+    def __init__(self, mesh: Mesh, clipped: np.ndarray, layout: dict, *, cutoff: float = _TAIL):
         grid = mesh.regular_grid
         self.mesh, self.grid, self.layout = mesh, grid, layout
         values = np.empty(mesh.n_points)
@@ -306,7 +306,7 @@ class _GridBand:
             tail = tuple(slice(1, None) if a == axis else slice(None) for a in range(3))
             low = np.minimum(low[head], low[tail])
             high = np.maximum(high[head], high[tail])
-        cells = np.flatnonzero((high > _TAIL) & (low < 1.0 - _TAIL))
+        cells = np.flatnonzero((high > cutoff) & (low < 1.0 - cutoff))
         low, high = low.ravel()[cells], high.ravel()[cells]
         nx, ny, nz = grid.cell_shape
         i, j, k = cells // (ny * nz), (cells // nz) % ny, cells % nz

@@ -9,16 +9,18 @@ Pure functions of a mesh and the phase indicator c:
   width in cells and the under-resolved share of the interface;
 * :func:`interface_profile_table`: the local profile fits, one row per sample;
 * :func:`diffusion_audit`: an effective (numerical) diffusivity from the
-  history of the interface variance.
+  history of the interface variance;
+* :func:`interface_kind`: whether a run's interface is diffuse or sharp.
 """
 
 from ..model.contour import Contour
 from ..model.corners import CornerExtremes, cell_gradient
 from ._contour import find_interface
-from ._diffusion_audit import diffusion_audit
+from ._diffusion_audit import SHARP_CELLS_ACROSS, diffusion_audit, interface_kind
 from ._interface_width import (METRIC_KEYS, PROFILE_COLUMNS, WIDTH_PER_EPS, interface_metrics,
                                interface_profile_table)
 
 __all__ = ["Contour", "CornerExtremes", "find_interface", "interface_metrics",
            "interface_profile_table", "cell_gradient", "diffusion_audit",
+           "interface_kind", "SHARP_CELLS_ACROSS",
            "METRIC_KEYS", "PROFILE_COLUMNS", "WIDTH_PER_EPS"]

@@ -102,7 +102,8 @@ def write_measure_report(out, result, *, series: dict, inputs: list, snapshots: 
     contours = sorted(os.listdir(os.path.join(out, "contours"))) if os.path.isdir(
         os.path.join(out, "contours")) else []
     fields = {"series": dict(series), "options": _options_dict(result.options), "execution": execution,
-              "skipped_steps": result.skipped, "warnings": list(step_warnings), "flags": result.flags}
+              "skipped_steps": result.skipped, "warnings": list(step_warnings), "flags": result.flags,
+              "interface_kind": (result.audit or {}).get("interface_kind")}
     timings = {"total_seconds": round(time.time() - started, 3), "report_seconds": round(time.time() - t0, 3),
                **step_timings}
     record = manifest("measure", version=version, inputs=inputs, fields=fields,
@@ -151,11 +152,22 @@ def _key_figures(result) -> list:
     add("mixing index, last step", "mixing_index", lambda v: v[-1])
     add("mixing length, last step", "mixing_length", lambda v: v[-1])
     audit = result.audit or {}
-    for key, label in (("D_num", "numerical diffusivity"), ("D_num_stderr", "numerical diffusivity, standard error"),
-                       ("D_ratio", "numerical / physical diffusivity")):
-        value = audit.get(key)
-        if value is not None and np.isfinite(float(value)):
-            pairs.append((label, value))
+    if audit.get("interface_kind") in ("diffuse", "sharp"):
+        cells = audit.get("cells_across")
+        pairs.append(("interface kind", f"{audit['interface_kind']} ({float(cells):.2g} cells across 10-90 %, "
+                                        "median over steps)"))
+    if audit.get("verdict"):
+        pairs.append(("diffusion audit", audit["verdict"]))
+    r_squared = audit.get("r_squared")
+    fits = r_squared is not None and np.isfinite(float(r_squared)) and float(r_squared) >= 0.5
+    # a diffusivity not distinguishable from 0, or a line that explains little, is no key figure
+    if audit.get("significant") and (audit.get("widening") or fits):
+        for key, label in (("D_num", "numerical diffusivity"),
+                           ("D_num_stderr", "numerical diffusivity, standard error"),
+                           ("D_ratio", "numerical / physical diffusivity")):
+            value = audit.get(key)
+            if value is not None and np.isfinite(float(value)):
+                pairs.append((label, value))
     return pairs
 
 
