@@ -181,8 +181,11 @@ def _page(result, series, pngs, execution, version) -> Page:
     if result.flags:
         page.items(result.flags, css="flag")
     else:
+        kind = (result.audit or {}).get("interface_kind")
+        resolved = ("sharp interface, resolution judged by droplet sizes" if kind == "sharp" else
+                    "interface and droplets resolved")
         page.items(["no flags: interface not widening, phase volume within tolerance, indicator bounded, "
-                    "interface and droplets resolved"], css="ok")
+                    + resolved], css="ok")
     page.heading("Key figures")
     page.key_values(_key_figures(result))
     if pngs:
