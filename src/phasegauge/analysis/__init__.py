@@ -5,10 +5,11 @@ Public modules: :mod:`~phasegauge.analysis.interface` (contours, widths, diffusi
 (tracks and events), :mod:`~phasegauge.analysis.mixing` (segregation, cross sections),
 :mod:`~phasegauge.analysis.conservation` (phase volume, boundedness, boundary flux),
 :mod:`~phasegauge.analysis.compare` (two runs side by side) and
-:mod:`~phasegauge.analysis.references` (published benchmark values).
+:mod:`~phasegauge.analysis.references` (published benchmark values) and
+:mod:`~phasegauge.analysis.convergence` (grid convergence index).
 """
 
-__all__ = ["interface", "droplets", "tracking", "mixing", "conservation", "compare", "references"]
+__all__ = ["interface", "droplets", "tracking", "mixing", "conservation", "compare", "references", "convergence"]
 
 
 def __getattr__(name):  # import the analysis modules on first use (they pull in scipy and pandas)
