@@ -356,3 +356,48 @@ def compare(path_a, path_b, field_a, field_b, range_a, range_b, phase_a, phase_b
                               rising_bubble=rising_bubble, workers=workers, progress=None if not quiet else False)
     if not quiet:
         click.echo(f"compared {len(result.pairs)} paired times; report: {os.path.join(out, 'report.html')}")
+
+
+@main.command()
+@click.argument("fine")
+@click.argument("medium")
+@click.argument("coarse")
+@click.option("--field", "-f", default=None, help="Field mapped to c (needed when an input is a series).")
+@click.option("--range", "value_range", default="0,1", show_default=True, help="LO,HI of the field, as for measure.")
+@click.option("--phase", type=click.Choice(["upper", "lower"]), default="upper", show_default=True)
+@click.option("--level", type=float, default=0.5, show_default=True, help="Indicator level, as for measure.")
+@click.option("--velocity", default=None, help="Velocity field, as for measure.")
+@click.option("--analyses", default=",".join(("interface", "droplets", "mixing", "conservation")),
+              show_default=True, help="Analyses run on inputs that are series.")
+@click.option("--cell-sizes", default=None,
+              help="Representative cell sizes H_FINE,H_MEDIUM,H_COARSE (default: (measure / cells)^(1/dim)).")
+@click.option("--safety-factor", type=float, default=1.25, show_default=True, help="Safety factor of the GCI.")
+@click.option("--out", "-o", "out", required=True, help="Output folder.")
+@click.option("--overwrite", is_flag=True, help="Replace an existing output folder.")
+@click.option("--workers", "-j", type=int, default=1, show_default=True, help="Local worker processes.")
+@click.option("--quiet", "-q", is_flag=True, help="No progress display.")
+def convergence(fine, medium, coarse, field, value_range, phase, level, velocity, analyses, cell_sizes,
+                safety_factor, out, overwrite, workers, quiet):
+    """Grid convergence of one case run on three meshes (Celik et al. 2008).
+
+    FINE, MEDIUM and COARSE are each a series or the output folder of a
+    finished measure run. Writes convergence.csv (apparent order, extrapolated
+    value, relative errors and the Grid Convergence Index of every steps.csv
+    quantity at paired times), convergence.png and manifest.json into OUT.
+    """
+    from .run.convergence import grid_convergence_run
+
+    options = None
+    if field is not None:
+        from .run.options import MeasureOptions
+
+        options = MeasureOptions(field=field, value_range=value_range, phase=phase, level=level,
+                                 velocity=velocity,
+                                 analyses=tuple(a.strip() for a in analyses.split(",") if a.strip()))
+    result = grid_convergence_run(fine, medium, coarse, options=options,
+                                  cell_sizes=_floats(cell_sizes, "--cell-sizes", 3), safety_factor=safety_factor,
+                                  out=out, overwrite=overwrite, workers=workers,
+                                  progress=None if not quiet else False)
+    if not quiet:
+        sizes = ", ".join(f"{s.cell_size:.4g}" for s in result.sources)
+        click.echo(f"{len(result.table)} rows (cell sizes {sizes}); table: {os.path.join(out, 'convergence.csv')}")

@@ -17,7 +17,8 @@ import numpy as np
 
 from ..errors import OptionError
 
-__all__ = ["representative_cell_size", "grid_convergence", "GCI_SAFETY_FACTOR", "CONVERGENCE_FIELDS"]
+__all__ = ["representative_cell_size", "grid_convergence", "convergence_table", "droplet_integrals", "paired_times",
+           "GCI_SAFETY_FACTOR", "CONVERGENCE_FIELDS", "CONVERGENCE_COLUMNS"]
 
 #: safety factor of the fine-grid GCI for three meshes (Roache 1998; Celik et al. 2008)
 GCI_SAFETY_FACTOR = 1.25
@@ -150,3 +151,120 @@ def grid_convergence(fine, medium, coarse, *, cell_sizes, safety_factor: float =
     if scalar:
         return {k: (bool(v[0]) if v.dtype == bool else float(v[0])) for k, v in out.items()}
     return out
+
+
+#: leading columns of the convergence table (``convergence.csv``)
+CONVERGENCE_COLUMNS = ("quantity", "time", "value_fine", "value_medium", "value_coarse", "cell_size_fine",
+                       "cell_size_medium", "cell_size_coarse", "apparent_order", "extrapolated",
+                       "relative_error_fine", "gci_fine")
+
+_NOT_QUANTITIES = ("step", "time", "step_a", "step_b", "track")
+
+
+def droplet_integrals(droplets):
+    """Per-step integral quantities of a droplet table.
+
+    Parameters
+    ----------
+    droplets : DataFrame
+        One row per droplet per step with ``step``, ``time``, ``volume`` and
+        (optionally) ``equivalent_diameter``.
+
+    Returns
+    -------
+    DataFrame
+        One row per step: ``step``, ``time``, ``total_droplet_volume`` (sum of the
+        droplet volumes), ``largest_droplet_volume`` and ``mean_droplet_diameter``
+        (mean equivalent diameter), in mesh length units.
+    """
+    import pandas as pd
+
+    if droplets is None or not len(droplets) or "volume" not in droplets:
+        return pd.DataFrame(columns=["step", "time", "total_droplet_volume", "largest_droplet_volume",
+                                     "mean_droplet_diameter"])
+    grouped = droplets.groupby("step", sort=True)
+    out = pd.DataFrame({"time": grouped["time"].first(), "total_droplet_volume": grouped["volume"].sum(),
+                        "largest_droplet_volume": grouped["volume"].max()})
+    if "equivalent_diameter" in droplets:
+        out["mean_droplet_diameter"] = grouped["equivalent_diameter"].mean()
+    return out.reset_index()
+
+
+def paired_times(times_fine, times_medium, times_coarse) -> np.ndarray:
+    """The times at which three runs are compared: the fine run's times inside every run's time span.
+
+    A run with one step (a steady result) spans every time; three one-step runs pair at the fine time.
+    """
+    spans = [np.asarray(t, dtype=float) for t in (times_fine, times_medium, times_coarse)]
+    fine = spans[0]
+    keep = np.ones(fine.shape, dtype=bool)
+    for t in spans[1:]:
+        if len(t) > 1:
+            keep &= (fine >= t.min() - 1e-12 * max(1.0, abs(t.min()))) & (fine <= t.max() + 1e-12 * max(1.0, abs(t.max())))
+    return fine[keep]
+
+
+def _values_at(frame, column, times):
+    t = frame["time"].to_numpy(dtype=float)
+    v = frame[column].to_numpy(dtype=float)
+    if len(t) == 1:
+        return np.full(len(times), v[0])
+    order = np.argsort(t, kind="stable")
+    t, v = t[order], v[order]
+    exact = np.searchsorted(t, times)
+    exact = np.minimum(exact, len(t) - 1)
+    hit = np.isclose(t[exact], times, rtol=1e-12, atol=0.0)
+    return np.where(hit, v[exact], np.interp(times, t, v))
+
+
+def convergence_table(fine, medium, coarse, *, cell_sizes, safety_factor: float = GCI_SAFETY_FACTOR):
+    """Grid convergence of every scalar quantity of three runs' per-step tables, at paired times.
+
+    Parameters
+    ----------
+    fine, medium, coarse : DataFrame
+        Per-step tables with a ``time`` column and quantity columns (``steps.csv``,
+        optionally joined with :func:`droplet_integrals`).
+    cell_sizes : sequence of 3 floats
+        Representative cell sizes h1 < h2 < h3.
+    safety_factor : float
+
+    Returns
+    -------
+    DataFrame
+        One row per quantity and paired time: :data:`CONVERGENCE_COLUMNS`, then
+        ``refinement_ratio_21``, ``refinement_ratio_32``,
+        ``extrapolated_relative_error_fine``, ``gci_medium``, ``asymptotic_ratio`` and
+        ``oscillatory``. The medium and coarse values are interpolated linearly in
+        time at the fine run's times (exact where the times agree). Quantities are
+        the numeric columns all three tables share, except step numbers and time.
+
+    References
+    ----------
+    Celik et al. (2008), J. Fluids Eng. 130, 078001.
+    """
+    import pandas as pd
+
+    frames = (fine, medium, coarse)
+    for frame in frames:
+        if "time" not in frame:
+            raise OptionError("a per-step table has no 'time' column", fix="hand the steps tables of three runs")
+    shared = [c for c in fine.columns if c not in _NOT_QUANTITIES and all(c in f for f in frames[1:])
+              and all(pd.api.types.is_numeric_dtype(f[c]) and not pd.api.types.is_bool_dtype(f[c])
+                      for f in frames)]
+    times = paired_times(*(f["time"].to_numpy(dtype=float) for f in frames))
+    h = [float(x) for x in cell_sizes]
+    rows = []
+    for column in shared:
+        values = [_values_at(f, column, times) for f in frames]
+        figures = grid_convergence(*values, cell_sizes=h, safety_factor=safety_factor)
+        block = {"quantity": column, "time": times, "value_fine": values[0], "value_medium": values[1],
+                 "value_coarse": values[2], "cell_size_fine": h[0], "cell_size_medium": h[1],
+                 "cell_size_coarse": h[2]}
+        block.update(figures)
+        rows.append(pd.DataFrame(block))
+    extra = [c for c in CONVERGENCE_FIELDS if c not in CONVERGENCE_COLUMNS]
+    if not rows:
+        return pd.DataFrame(columns=list(CONVERGENCE_COLUMNS) + extra)
+    table = pd.concat(rows, ignore_index=True)
+    return table[list(CONVERGENCE_COLUMNS) + extra]
