@@ -6,10 +6,11 @@ Public modules: :mod:`~phasegauge.analysis.interface` (contours, widths, diffusi
 :mod:`~phasegauge.analysis.conservation` (phase volume, boundedness, boundary flux),
 :mod:`~phasegauge.analysis.compare` (two runs side by side) and
 :mod:`~phasegauge.analysis.references` (published benchmark values) and
-:mod:`~phasegauge.analysis.convergence` (grid convergence index).
+:mod:`~phasegauge.analysis.convergence` (grid convergence index),
+:mod:`~phasegauge.analysis.probes` (values at points and along lines).
 """
 
-__all__ = ["interface", "droplets", "tracking", "mixing", "conservation", "compare", "references", "convergence"]
+__all__ = ["interface", "droplets", "tracking", "mixing", "conservation", "compare", "references", "convergence", "probes"]
 
 
 def __getattr__(name):  # import the analysis modules on first use (they pull in scipy and pandas)
