@@ -215,10 +215,15 @@ def _add(options):
 @click.option("--no-contours", is_flag=True, help="Do not write the interface geometry of every step.")
 @click.option("--snapshots", type=int, default=4, show_default=True, help="Steps whose interface the report draws.")
 @click.option("--quiet", "-q", is_flag=True, help="No progress display.")
+@click.option("--probes", "probe_file", default=None, help="CSV of probe points, 'name,x,y[,z]' (probes.csv).")
+@click.option("--lines", "line_file", default=None,
+              help="CSV of sample lines, 'name,x0,y0[,z0],x1,y1[,z1],points' (lines.csv).")
+@click.option("--measured", "measured_file", default=None,
+              help="CSV of measured values, 'x,y[,z],value[,time][,uncertainty]' (validation.csv).")
 def measure(path, field, value_range, phase, level, velocity, out, analyses, adjacency, periodic,
             ignore_remerge, densities, diffusivity, box, section_axis, section_count, section_at,
             mixing_target, segregation_scale, drift_tolerance, workers, scheduler, resume, overwrite, strict, no_contours,
-            snapshots, quiet):
+            snapshots, quiet, probe_file, line_file, measured_file):
     """Measure interface, droplets, mixing and conservation on every step of PATH.
 
     PATH is a mesh file, an XDMF time series, a folder of numbered files, a
@@ -235,11 +240,25 @@ def measure(path, field, value_range, phase, level, velocity, out, analyses, adj
         diffusivity=diffusivity, box=_box(box), section_axis=section_axis, section_count=section_count,
         section_positions=_floats(section_at, "--section-at"), mixing_target=mixing_target,
         segregation_scale=segregation_scale,
-        drift_tolerance=drift_tolerance, strict=strict)
+        drift_tolerance=drift_tolerance, strict=strict, **_point_options(probe_file, line_file, measured_file))
     result = run_measure(path, options=options, out=out, workers=workers, scheduler=scheduler,
                          overwrite=overwrite, resume=resume, progress=None if not quiet else False,
                          write_contours=not no_contours, snapshots=snapshots)
     _summary(result, out, quiet)
+
+
+def _point_options(probe_file, line_file, measured_file) -> dict:
+    """MeasureOptions entries read from the probe, line and measured files that are given."""
+    from .io import read_line_file, read_measured_file, read_probe_file
+
+    given = {}
+    if probe_file:
+        given["probes"] = read_probe_file(probe_file)
+    if line_file:
+        given["lines"] = read_line_file(line_file)
+    if measured_file:
+        given["measured"] = read_measured_file(measured_file)
+    return given
 
 
 def _summary(result, out, quiet):

@@ -11,6 +11,7 @@ from ._contour_writer import read_contour, write_contour
 from ._formats import FileFormat, format_for, formats, mesh_suffixes, read_mesh_file, register_format
 from ._inputs import file_sha256, input_files
 from ._mesh_pool import MeshPool
+from ._point_files import read_line_file, read_measured_file, read_probe_file
 from ._meshio_adapter import StepFields
 from ._reference_table import read_reference_table
 from ._series import (LISTING_SUFFIXES, Series, Step, StepInfo, natural_key, open_series,
@@ -26,4 +27,5 @@ read_meshio = read_mesh_file
 __all__ = ["MESH_SUFFIXES", "LISTING_SUFFIXES", "Series", "Step", "StepInfo", "StepFields", "MeshPool",
            "natural_key", "open_series", "read_listing", "read_mesh_file", "read_meshio", "read_contour",
            "write_contour", "FileFormat", "register_format", "formats", "format_for", "xdmf_data_files",
-           "input_files", "file_sha256", "read_reference_table"]
+           "input_files", "file_sha256", "read_reference_table", "read_probe_file", "read_line_file",
+           "read_measured_file"]

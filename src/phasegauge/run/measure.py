@@ -75,6 +75,10 @@ class MeasureResult:
     mesh: object = field(default=None, repr=False)  # mesh (or outline) of the last step, for drawing
     warnings: list = field(default_factory=list)
     findings: list = field(default_factory=list, repr=False)
+    probes: object = None  # DataFrame of probes.csv, or None without probes
+    lines: object = None  # DataFrame of lines.csv, or None without lines
+    validation: object = None  # DataFrame of validation.csv, or None without measured values
+    validation_summary: object = None  # per time and overall figures of validation.csv's comparison
 
 
 def measure(path, field: str | None = None, *, options: MeasureOptions | None = None, out=None,

@@ -72,6 +72,13 @@ class MeasureOptions:
         Relative phase-volume drift that raises a flag in the report.
     strict : bool
         Fail on a bad step instead of skipping it.
+    probes : tuple of (name, x, y, z)
+        Points where the field and c are kept at every step (``probes.csv``).
+    lines : tuple of (name, x0, y0, z0, x1, y1, z1, points)
+        Straight lines sampled at evenly spaced points at every step (``lines.csv``).
+    measured : tuple of (x, y, z, value, time, uncertainty)
+        Measured values the run is checked against (``validation.csv``); time and
+        uncertainty may be NaN (see :func:`phasegauge.io.read_measured_file`).
     """
 
     field: str
@@ -93,9 +100,17 @@ class MeasureOptions:
     segregation_scale: bool = False
     drift_tolerance: float = 1e-3
     strict: bool = False
+    probes: tuple = ()
+    lines: tuple = ()
+    measured: tuple = ()
 
     def __post_init__(self):
         set_ = object.__setattr__
+        from ._sampling import normalize_lines, normalize_measured, normalize_probes
+
+        set_(self, "probes", normalize_probes(self.probes))
+        set_(self, "lines", normalize_lines(self.lines))
+        set_(self, "measured", normalize_measured(self.measured))
         if not isinstance(self.field, str) or not self.field:
             raise OptionError("a field name is needed", fix="give --field NAME (see 'phasegauge inspect')")
         set_(self, "value_range", parse_range(self.value_range))
