@@ -40,6 +40,11 @@ A measure recipe::
     folder = "../out/filament"      # relative to the recipe
     overwrite = true
 
+    [validation]               # optional; CSV files relative to the recipe
+    probes = "probes.csv"      # name,x,y[,z]
+    lines = "lines.csv"        # name,x0,y0[,z0],x1,y1[,z1],points
+    measured = "measured.csv"  # x,y[,z],value[,time][,uncertainty]
+
 A compare recipe has ``[first]`` and ``[second]`` tables (each like ``[input]``,
 with an optional ``label``), an optional ``[compare]`` table
 (``time_tolerance``, ``spacing``, ``level``, ``reference_table``,
@@ -69,6 +74,7 @@ RECIPE_SCHEMA = {
     "conservation": {"densities": list, "drift_tolerance": (int, float)},
     "run": {"analyses": list, "workers": int, "scheduler": str, "strict": bool, "snapshots": int},
     "output": {"folder": str, "overwrite": bool},
+    "validation": {"probes": str, "lines": str, "measured": str},
 }
 
 COMPARE_SCHEMA = {
@@ -154,6 +160,10 @@ def load_recipe(path) -> dict:
     data["output"]["folder"] = _resolve(base, data["output"]["folder"])
     if "compare" in data and "reference_table" in data["compare"]:
         data["compare"]["reference_table"] = _resolve(base, data["compare"]["reference_table"])
+    for key in data.get("validation", {}):
+        data["validation"][key] = _resolve(base, data["validation"][key])
+    if "validation" in data:
+        _point_options(data["validation"])  # the files are read and checked before any work
     data["kind"] = kind
     data["base"] = base
     return data
@@ -275,10 +285,18 @@ def measure_arguments(recipe: dict) -> dict:
         section_positions=tuple(mix["section_positions"]) if "section_positions" in mix else None,
         mixing_target=mix.get("target", 0.9), segregation_scale=mix.get("segregation_scale", False),
         drift_tolerance=cons.get("drift_tolerance", 1e-3),
-        strict=run.get("strict", False))
+        strict=run.get("strict", False), **_point_options(recipe.get("validation", {})))
     return dict(path=inp["path"], options=options, out=out["folder"], overwrite=out.get("overwrite", False),
                 workers=run.get("workers", 1), scheduler=run.get("scheduler"),
                 write_contours=iface.get("contours", True), snapshots=run.get("snapshots", 4))
+
+
+def _point_options(validation: dict) -> dict:
+    """MeasureOptions entries read from a recipe's [validation] files."""
+    from .io import read_line_file, read_measured_file, read_probe_file
+
+    readers = {"probes": read_probe_file, "lines": read_line_file, "measured": read_measured_file}
+    return {key: readers[key](path) for key, path in validation.items()}
 
 
 def run_recipe(path, *, overwrite=None, resume: bool = False, workers=None, progress=None):

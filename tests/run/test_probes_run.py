@@ -144,3 +144,26 @@ def test_file_and_option_errors(tmp_path):
     with pytest.raises(OptionError, match="finite"):
         MeasureOptions(field="f", probes=(("a", float("nan"), 0.0),))
     assert read_probe_file(_write(tmp_path / "d.csv", "name, x, y\n# a comment\nq,1,2\n")) == (("q", 1.0, 2.0, 0.0),)
+
+
+def test_recipe_validation_table(tmp_path):
+    from phasegauge.recipes import load_recipe, run_recipe
+
+    listing = _series(str(tmp_path))
+    _write(tmp_path / "p.csv", "name,x,y\nmid,0.5,0.5\n")
+    _write(tmp_path / "l.csv", "name,x0,y0,x1,y1,points\nacross,0,0.5,1,0.5,5\n")
+    _write(tmp_path / "m.csv", "x,y,value\n0.5,0.5,0.55\n")
+    recipe = _write(tmp_path / "r.toml", f'[input]\npath = "{os.path.basename(listing)}"\nfield = "f"\n'
+                    '[run]\nanalyses = ["conservation"]\n[output]\nfolder = "out"\n'
+                    '[validation]\nprobes = "p.csv"\nlines = "l.csv"\nmeasured = "m.csv"\n')
+    result = run_recipe(recipe)
+    assert len(result.probes) == len(TIMES) and len(result.lines) == 5 * len(TIMES)
+    assert (tmp_path / "out" / "validation.csv").exists()
+    typo = _write(tmp_path / "t.toml", f'[input]\npath = "{os.path.basename(listing)}"\nfield = "f"\n'
+                  '[output]\nfolder = "out2"\n[validation]\nprobe = "p.csv"\n')
+    with pytest.raises(OptionError, match="did you mean 'probes'"):
+        load_recipe(typo)
+    missing = _write(tmp_path / "u.toml", f'[input]\npath = "{os.path.basename(listing)}"\nfield = "f"\n'
+                     '[output]\nfolder = "out3"\n[validation]\nprobes = "nope.csv"\n')
+    with pytest.raises(FileNotFoundError, match="probe file not found"):
+        load_recipe(missing)
