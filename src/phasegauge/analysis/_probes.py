@@ -157,7 +157,7 @@ def _build(mesh: Mesh, P: np.ndarray) -> PointSampler:
     cells = np.full(n, -1, dtype=np.int64)
     centres = {}  # query point -> (mesh points, weights) where its simplex has an added centre
     if n and mesh.n_cells:
-        tree = mesh.memo("centroid_tree", lambda: cKDTree(mesh.cell_centroids))
+        tree = mesh.memo("centroid_tree", lambda: cKDTree(mesh.cell_centroids), keep=False)  # only the weights stay
         k = min(_NEAREST, mesh.n_cells)
         for lo in range(0, n, _CHUNK):
             ids = np.arange(lo, min(n, lo + _CHUNK))
