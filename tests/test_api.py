@@ -10,7 +10,7 @@ MODULES = ["phasegauge", "phasegauge.io", "phasegauge.report", "phasegauge.sampl
            "phasegauge.analysis.references", "phasegauge.analysis.convergence", "phasegauge.analysis.probes", "phasegauge.errors", "phasegauge.model.mesh", "phasegauge.model.indicator",
            "phasegauge.run.measure", "phasegauge.recipes", "phasegauge.run.compare", "phasegauge.meshgen",
            "phasegauge.run.options", "phasegauge.run.step", "phasegauge.run.cache", "phasegauge.run.executors",
-           "phasegauge.run.assemble", "phasegauge.model.fields", "phasegauge.model.axes",
+           "phasegauge.run.assemble", "phasegauge.run.convergence", "phasegauge.run.campaign", "phasegauge.model.fields", "phasegauge.model.axes",
            "phasegauge.model.outline"]
 
 

@@ -267,6 +267,9 @@ def _summary(result, out, quiet):
     if hasattr(result, "pairs"):
         click.echo(f"compared {len(result.pairs)} paired times; report: {os.path.join(out, 'report.html')}")
         return
+    if hasattr(result, "runs") and not hasattr(result, "steps"):
+        click.echo(f"measured {len(result.table)} runs; table: {os.path.join(out, 'campaign.csv')}")
+        return
     n = len(result.steps)
     results = getattr(result, "results", [])
     if results and all(r.reused for r in results):
