@@ -7,11 +7,12 @@ import pytest
 MODULES = ["phasegauge", "phasegauge.io", "phasegauge.report", "phasegauge.samples", "phasegauge.analysis",
            "phasegauge.analysis.interface", "phasegauge.analysis.droplets", "phasegauge.analysis.tracking",
            "phasegauge.analysis.mixing", "phasegauge.analysis.conservation", "phasegauge.analysis.compare",
-           "phasegauge.analysis.references", "phasegauge.errors", "phasegauge.model.mesh", "phasegauge.model.indicator",
+           "phasegauge.analysis.references", "phasegauge.analysis.convergence", "phasegauge.analysis.probes", "phasegauge.errors", "phasegauge.model.mesh", "phasegauge.model.indicator",
            "phasegauge.run.measure", "phasegauge.recipes", "phasegauge.run.compare", "phasegauge.meshgen",
            "phasegauge.run.options", "phasegauge.run.step", "phasegauge.run.cache", "phasegauge.run.executors",
            "phasegauge.run.assemble", "phasegauge.model.fields", "phasegauge.model.axes",
-           "phasegauge.model.outline", "phasegauge.analysis.thermo", "phasegauge.model.mixture_models"]
+           "phasegauge.model.outline", "phasegauge.analysis.thermo", "phasegauge.model.mixture_models",
+           "phasegauge.run.convergence", "phasegauge.run.campaign"]
 
 
 @pytest.mark.parametrize("name", MODULES)

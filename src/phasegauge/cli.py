@@ -225,11 +225,16 @@ def _add(options):
               help="Order the steps by the times stored in their files, not by their names (default: refuse "
                    "a series whose times do not increase).")
 @click.option("--quiet", "-q", is_flag=True, help="No progress display.")
+@click.option("--probes", "probe_file", default=None, help="CSV of probe points, 'name,x,y[,z]' (probes.csv).")
+@click.option("--lines", "line_file", default=None,
+              help="CSV of sample lines, 'name,x0,y0[,z0],x1,y1[,z1],points' (lines.csv).")
+@click.option("--measured", "measured_file", default=None,
+              help="CSV of measured values, 'x,y[,z],value[,time][,uncertainty]' (validation.csv).")
 def measure(path, field, value_range, phase, level, velocity, field_location, sort_by_time, out, analyses,
             adjacency, periodic,
             ignore_remerge, densities, diffusivity, box, section_axis, section_count, section_at,
             mixing_target, segregation_scale, drift_tolerance, workers, scheduler, resume, overwrite, strict, keep_3d,
-            no_contours, snapshots, quiet):
+            no_contours, snapshots, quiet, probe_file, line_file, measured_file):
     """Measure interface, droplets, mixing and conservation on every step of PATH.
 
     PATH is a mesh file, an XDMF time series, a folder of numbered files, a
@@ -247,11 +252,26 @@ def measure(path, field, value_range, phase, level, velocity, field_location, so
         section_positions=_floats(section_at, "--section-at"), mixing_target=mixing_target,
         segregation_scale=segregation_scale,
         drift_tolerance=drift_tolerance, strict=strict, field_location=field_location or "auto",
-        sort_by_time=sort_by_time, keep_3d=keep_3d)
+        sort_by_time=sort_by_time, keep_3d=keep_3d,
+        **_point_options(probe_file, line_file, measured_file))
     result = run_measure(path, options=options, out=out, workers=workers, scheduler=scheduler,
                          overwrite=overwrite, resume=resume, progress=None if not quiet else False,
                          write_contours=not no_contours, snapshots=snapshots)
     _summary(result, out, quiet)
+
+
+def _point_options(probe_file, line_file, measured_file) -> dict:
+    """MeasureOptions entries read from the probe, line and measured files that are given."""
+    from .io import read_line_file, read_measured_file, read_probe_file
+
+    given = {}
+    if probe_file:
+        given["probes"] = read_probe_file(probe_file)
+    if line_file:
+        given["lines"] = read_line_file(line_file)
+    if measured_file:
+        given["measured"] = read_measured_file(measured_file)
+    return given
 
 
 def _summary(result, out, quiet):
@@ -259,6 +279,9 @@ def _summary(result, out, quiet):
         return
     if hasattr(result, "pairs"):
         click.echo(f"compared {len(result.pairs)} paired times; report: {os.path.join(out, 'report.html')}")
+        return
+    if hasattr(result, "runs") and not hasattr(result, "steps"):
+        click.echo(f"measured {len(result.table)} runs; table: {os.path.join(out, 'campaign.csv')}")
         return
     n = len(result.steps)
     results = getattr(result, "results", [])
@@ -436,3 +459,48 @@ def compare(path_a, path_b, field_a, field_b, range_a, range_b, phase_a, phase_b
                               rising_bubble=rising_bubble, workers=workers, progress=None if not quiet else False)
     if not quiet:
         click.echo(f"compared {len(result.pairs)} paired times; report: {os.path.join(out, 'report.html')}")
+
+
+@main.command()
+@click.argument("fine")
+@click.argument("medium")
+@click.argument("coarse")
+@click.option("--field", "-f", default=None, help="Field mapped to c (needed when an input is a series).")
+@click.option("--range", "value_range", default="0,1", show_default=True, help="LO,HI of the field, as for measure.")
+@click.option("--phase", type=click.Choice(["upper", "lower"]), default="upper", show_default=True)
+@click.option("--level", type=float, default=0.5, show_default=True, help="Indicator level, as for measure.")
+@click.option("--velocity", default=None, help="Velocity field, as for measure.")
+@click.option("--analyses", default=",".join(("interface", "droplets", "mixing", "conservation")),
+              show_default=True, help="Analyses run on inputs that are series.")
+@click.option("--cell-sizes", default=None,
+              help="Representative cell sizes H_FINE,H_MEDIUM,H_COARSE (default: (measure / cells)^(1/dim)).")
+@click.option("--safety-factor", type=float, default=1.25, show_default=True, help="Safety factor of the GCI.")
+@click.option("--out", "-o", "out", required=True, help="Output folder.")
+@click.option("--overwrite", is_flag=True, help="Replace an existing output folder.")
+@click.option("--workers", "-j", type=int, default=1, show_default=True, help="Local worker processes.")
+@click.option("--quiet", "-q", is_flag=True, help="No progress display.")
+def convergence(fine, medium, coarse, field, value_range, phase, level, velocity, analyses, cell_sizes,
+                safety_factor, out, overwrite, workers, quiet):
+    """Grid convergence of one case run on three meshes (Celik et al. 2008).
+
+    FINE, MEDIUM and COARSE are each a series or the output folder of a
+    finished measure run. Writes convergence.csv (apparent order, extrapolated
+    value, relative errors and the Grid Convergence Index of every steps.csv
+    quantity at paired times), convergence.png and manifest.json into OUT.
+    """
+    from .run.convergence import grid_convergence_run
+
+    options = None
+    if field is not None:
+        from .run.options import MeasureOptions
+
+        options = MeasureOptions(field=field, value_range=value_range, phase=phase, level=level,
+                                 velocity=velocity,
+                                 analyses=tuple(a.strip() for a in analyses.split(",") if a.strip()))
+    result = grid_convergence_run(fine, medium, coarse, options=options,
+                                  cell_sizes=_floats(cell_sizes, "--cell-sizes", 3), safety_factor=safety_factor,
+                                  out=out, overwrite=overwrite, workers=workers,
+                                  progress=None if not quiet else False)
+    if not quiet:
+        sizes = ", ".join(f"{s.cell_size:.4g}" for s in result.sources)
+        click.echo(f"{len(result.table)} rows (cell sizes {sizes}); table: {os.path.join(out, 'convergence.csv')}")

@@ -42,6 +42,15 @@ A measure recipe::
     folder = "../out/filament"      # relative to the recipe
     overwrite = true
 
+    [validation]               # optional; CSV files relative to the recipe
+    probes = "probes.csv"      # name,x,y[,z]
+    lines = "lines.csv"        # name,x0,y0[,z0],x1,y1[,z1],points
+    measured = "measured.csv"  # x,y[,z],value[,time][,uncertainty]
+
+A campaign recipe is a measure recipe whose ``[input]`` has no path, with a
+``[campaign]`` table (``parameter`` name, ``unit``) and one ``[[runs]]`` table
+per run (``path``, ``parameter``, optional ``label``); see :mod:`phasegauge.run.campaign`.
+
 A compare recipe has ``[first]`` and ``[second]`` tables (each like ``[input]``,
 with an optional ``label``), an optional ``[compare]`` table
 (``time_tolerance``, ``spacing``, ``level``, ``reference_table``,
@@ -58,7 +67,7 @@ import sys
 
 from .errors import InputFileNotFound, OptionError
 
-__all__ = ["load_recipe", "run_recipe", "RECIPE_SCHEMA", "COMPARE_SCHEMA"]
+__all__ = ["load_recipe", "run_recipe", "RECIPE_SCHEMA", "COMPARE_SCHEMA", "CAMPAIGN_SCHEMA"]
 
 _INPUT = {"path": str, "field": str, "range": list, "phase": str, "velocity": str, "label": str,
           "field_location": str, "sort_by_time": bool}
@@ -72,7 +81,14 @@ RECIPE_SCHEMA = {
     "conservation": {"densities": list, "drift_tolerance": (int, float)},
     "run": {"analyses": list, "workers": int, "scheduler": str, "strict": bool, "snapshots": int},
     "output": {"folder": str, "overwrite": bool},
+    "validation": {"probes": str, "lines": str, "measured": str},
 }
+
+#: a campaign recipe: a measure recipe whose [input] has no path, a [campaign] table and [[runs]]
+CAMPAIGN_SCHEMA = {**RECIPE_SCHEMA, "campaign": {"parameter": str, "unit": str}}
+
+#: keys of each [[runs]] table of a campaign
+RUN_ENTRY = {"path": str, "parameter": (int, float), "label": str}
 
 COMPARE_SCHEMA = {
     "first": _INPUT,
@@ -84,6 +100,7 @@ COMPARE_SCHEMA = {
 }
 
 _REQUIRED = {"measure": {"input": ("path", "field"), "output": ("folder",)},
+             "campaign": {"input": ("field",), "output": ("folder",)},
              "compare": {"first": ("path", "field"), "second": ("path", "field"), "output": ("folder",)}}
 
 
@@ -124,9 +141,12 @@ def load_recipe(path) -> dict:
     """
     path = os.fspath(path)
     data = _load_toml(path)
-    kind = "compare" if ("first" in data or "second" in data) else "measure"
-    schema = COMPARE_SCHEMA if kind == "compare" else RECIPE_SCHEMA
+    kind = "compare" if ("first" in data or "second" in data) else ("campaign" if "runs" in data else "measure")
+    schema = {"compare": COMPARE_SCHEMA, "campaign": CAMPAIGN_SCHEMA}.get(kind, RECIPE_SCHEMA)
     for table, entries in data.items():
+        if kind == "campaign" and table == "runs":
+            _check_runs(entries, path, data.get("input", {}))
+            continue
         if table not in schema:
             raise OptionError(f"unknown table [{table}]; {_suggest(table, schema)}", where=path,
                               fix="see the recipe format in the README")
@@ -157,6 +177,12 @@ def load_recipe(path) -> dict:
     data["output"]["folder"] = _resolve(base, data["output"]["folder"])
     if "compare" in data and "reference_table" in data["compare"]:
         data["compare"]["reference_table"] = _resolve(base, data["compare"]["reference_table"])
+    for entry in data.get("runs", []) if kind == "campaign" else []:
+        entry["path"] = _resolve(base, entry["path"])
+    for key in data.get("validation", {}):
+        data["validation"][key] = _resolve(base, data["validation"][key])
+    if "validation" in data:
+        _point_options(data["validation"])  # the files are read and checked before any work
     data["kind"] = kind
     data["base"] = base
     return data
@@ -199,7 +225,7 @@ def _check_values(data: dict, kind: str, path: str) -> None:
     if "section_positions" in mixing and "section_axis" not in mixing:
         raise OptionError("[mixing] section_positions are given without section_axis, so no section would be cut",
                           where=path, fix='add section_axis = "x" (the axis the planes are normal to)')
-    if kind == "measure":
+    if kind in ("measure", "campaign"):
         for (table, key), option in _MEASURE_OPTION.items():
             if key not in data.get(table, {}):
                 continue
@@ -244,6 +270,29 @@ def _check_values(data: dict, kind: str, path: str) -> None:
                           where=path, fix="the interface is usually at level 0.5")
 
 
+def _check_runs(runs, path: str, inp: dict) -> None:
+    """Check the [[runs]] tables of a campaign: each a table with a path and a numeric parameter."""
+    if not isinstance(runs, list) or not runs or not all(isinstance(r, dict) for r in runs):
+        raise OptionError("runs must be [[runs]] tables", where=path,
+                          fix='write [[runs]] with path = "..." and parameter = 0.5 for each run')
+    if "path" in inp:
+        raise OptionError("a campaign's [input] has no path: each [[runs]] table names its own", where=path,
+                          fix="move the path into the [[runs]] tables")
+    for k, entry in enumerate(runs, start=1):
+        for key, value in entry.items():
+            if key not in RUN_ENTRY:
+                raise OptionError(f"unknown key '{key}' in [[runs]] number {k}; {_suggest(key, RUN_ENTRY)}",
+                                  where=path, fix="see the recipe format in the README")
+            expected = RUN_ENTRY[key]
+            if (isinstance(value, bool) and key == "parameter") or not isinstance(value, expected):
+                raise OptionError(f"[[runs]] number {k}: {key} must be a "
+                                  f"{'number' if key == 'parameter' else 'text in quotes'}, found {value!r}",
+                                  where=path, fix="correct the value")
+        for key in ("path", "parameter"):
+            if key not in entry:
+                raise OptionError(f"[[runs]] number {k} needs '{key}'", where=path, fix=f"add {key} = ...")
+
+
 def _type_word(name: str) -> str:
     return {"str": "text in quotes", "list": "list [..]", "bool": "true or false", "int": "whole number"}.get(
         name, name)
@@ -279,10 +328,19 @@ def measure_arguments(recipe: dict) -> dict:
         mixing_target=mix.get("target", 0.9), segregation_scale=mix.get("segregation_scale", False),
         drift_tolerance=cons.get("drift_tolerance", 1e-3),
         strict=run.get("strict", False), field_location=inp.get("field_location", "auto"),
-        sort_by_time=inp.get("sort_by_time", False), keep_3d=inp.get("keep_3d", False))
-    return dict(path=inp["path"], options=options, out=out["folder"], overwrite=out.get("overwrite", False),
+        sort_by_time=inp.get("sort_by_time", False), keep_3d=inp.get("keep_3d", False),
+        **_point_options(recipe.get("validation", {})))
+    return dict(path=inp.get("path"), options=options, out=out["folder"], overwrite=out.get("overwrite", False),
                 workers=run.get("workers", 1), scheduler=run.get("scheduler"),
                 write_contours=iface.get("contours", True), snapshots=run.get("snapshots", 4))
+
+
+def _point_options(validation: dict) -> dict:
+    """MeasureOptions entries read from a recipe's [validation] files."""
+    from .io import read_line_file, read_measured_file, read_probe_file
+
+    readers = {"probes": read_probe_file, "lines": read_line_file, "measured": read_measured_file}
+    return {key: readers[key](path) for key, path in validation.items()}
 
 
 def run_recipe(path, *, overwrite=None, resume: bool = False, workers=None, progress=None):
@@ -297,6 +355,16 @@ def run_recipe(path, *, overwrite=None, resume: bool = False, workers=None, prog
         if workers is not None:
             kwargs["workers"] = workers
         return measure(resume=resume, progress=progress, **kwargs)
+    if recipe["kind"] == "campaign":
+        from .run.campaign import run_campaign
+
+        kwargs = measure_arguments(recipe)
+        campaign = recipe.get("campaign", {})
+        return run_campaign(recipe["runs"], kwargs["options"], out=kwargs["out"],
+                            parameter=campaign.get("parameter", "parameter"), unit=campaign.get("unit", ""),
+                            overwrite=kwargs["overwrite"] if overwrite is None else overwrite, resume=resume,
+                            workers=kwargs["workers"] if workers is None else workers, progress=progress,
+                            write_contours=kwargs["write_contours"], snapshots=kwargs["snapshots"])
     from .run.compare import compare_runs, compare_arguments
 
     kwargs = compare_arguments(recipe)

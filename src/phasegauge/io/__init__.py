@@ -12,6 +12,7 @@ from ._formats import FileFormat, format_for, formats, mesh_suffixes, read_mesh_
 from ._inputs import file_sha256, input_files
 from ._mesh_pool import MeshPool
 from ._model_file import mixture_model_from_table, read_mixture_model
+from ._point_files import read_line_file, read_measured_file, read_probe_file
 from ._meshio_adapter import StepFields
 from ._reference_table import read_reference_table
 from ._series import (LISTING_SUFFIXES, Series, Step, StepInfo, natural_key, open_series,
@@ -29,4 +30,5 @@ __all__ = ["MESH_SUFFIXES", "LISTING_SUFFIXES", "Series", "Step", "StepInfo", "S
            "natural_key", "open_series", "read_listing", "read_mesh_file", "read_meshio", "read_contour",
            "write_contour", "FileFormat", "register_format", "formats", "format_for", "xdmf_data_files",
            "multiblock_data_files", "input_files", "file_sha256", "read_reference_table", "read_mixture_model",
-           "mixture_model_from_table"]
+           "mixture_model_from_table", "read_probe_file", "read_line_file",
+           "read_measured_file"]

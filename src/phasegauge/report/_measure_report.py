@@ -92,6 +92,10 @@ def write_measure_report(out, result, *, series: dict, inputs: list, snapshots: 
         table("events.csv", result.events)
     if result.profiles is not None and len(result.profiles):
         table("profiles.csv", result.profiles)
+    for name, frame in (("probes.csv", getattr(result, "probes", None)), ("lines.csv", getattr(result, "lines", None)),
+                        ("validation.csv", getattr(result, "validation", None)),
+                        ("validation_summary.csv", getattr(result, "validation_summary", None))):
+        table(name, frame)
     if result.audit:
         atomic_write_json(os.path.join(out, "diffusion_audit.json"), result.audit)
         written.append("diffusion_audit.json")
@@ -191,6 +195,10 @@ def _page(result, series, pngs, execution, version) -> Page:
     if pngs:
         page.heading("Plots")
         page.figures(pngs)
+    summary = getattr(result, "validation_summary", None)
+    if summary is not None and len(summary):
+        page.heading("Against measured values")
+        page.table(summary)
     if "droplets" in opts.analyses:
         page.heading("Droplet events")
         page.table(result.events)

@@ -58,4 +58,23 @@ def measure_figures(result, snapshots: dict | None = None) -> list:
         figures.append(("mixing_profile", "Mixing index along the channel (cross sections)",
                         _plots_mixing.plot_mixing_profile(by_step, weighting=weighting,
                                                           target=result.options.mixing_target)))
+    figures += _probe_figures(result)
+    return figures
+
+
+def _probe_figures(result) -> list:
+    """Probe histories, line profiles and the measured overlay, where the run has them."""
+    from . import _plots_probes
+
+    figures = []
+    probes, lines = getattr(result, "probes", None), getattr(result, "lines", None)
+    validation = getattr(result, "validation", None)
+    if probes is not None and len(probes):
+        figures.append(("probe_histories", "Field at each probe over time", _plots_probes.plot_probe_histories(probes)))
+    if lines is not None and len(lines):
+        figures.append(("line_profiles", "Field along each line at chosen steps",
+                        _plots_probes.plot_line_profiles(lines)))
+    if validation is not None and len(validation):
+        figures.append(("validation_overlay", "Simulated against measured values",
+                        _plots_probes.plot_validation_overlay(validation, getattr(result, "validation_summary", None))))
     return figures

@@ -284,9 +284,24 @@ def assemble(series, results: list, options, *, notes=(), feed: TrackingFeed | N
     if any(r.contour is not None for r in done):
         last = done[-1]
         mesh = (mesh_pool.find(last.mesh_signature) if mesh_pool is not None else None) or last.outline
+    probes, lines, validation, validation_summary = _sample_tables(done, options)
     return MeasureResult(steps=steps, droplets=droplets, events=events, profiles=profiles, audit=audit,
                          flags=[f.text for f in found], skipped=skipped, options=options, results=results,
-                         mesh=mesh, warnings=[text for _, text in summary], findings=found)
+                         mesh=mesh, warnings=[text for _, text in summary], findings=found, probes=probes,
+                         lines=lines, validation=validation, validation_summary=validation_summary)
+
+
+def _sample_tables(done, options):
+    """probes.csv, lines.csv, validation.csv and its summary (None where the run has none)."""
+    from ._sampling import sample_tables
+
+    probes, lines, measured = sample_tables(done, options)
+    if measured is None:
+        return probes, lines, None, None
+    from ..analysis.probes import validation_summary, validation_table
+
+    table = validation_table(options.measured, *measured)
+    return probes, lines, table, validation_summary(table)
 
 
 #: overshoot and drift below this share of the domain volume are round-off (c carried in float64

@@ -79,6 +79,10 @@ class MeasureResult:
     warnings: list = field(default_factory=list)
     findings: list = field(default_factory=list, repr=False)
     reading: list = field(default_factory=list)  # what was read: the field's copy, blocks left out (info lines)
+    probes: object = None  # DataFrame of probes.csv, or None without probes
+    lines: object = None  # DataFrame of lines.csv, or None without lines
+    validation: object = None  # DataFrame of validation.csv, or None without measured values
+    validation_summary: object = None  # per time and overall figures of validation.csv's comparison
 
 
 def measure(path, field: str | None = None, *, options: MeasureOptions | None = None, out=None,

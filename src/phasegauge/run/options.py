@@ -81,6 +81,13 @@ class MeasureOptions:
     keep_3d : bool
         Measure a mesh one cell thick (quasi-2D) as 3D; by default it is
         measured per unit depth as 2D on its lower face plane.
+    probes : tuple of (name, x, y, z)
+        Points where the field and c are kept at every step (``probes.csv``).
+    lines : tuple of (name, x0, y0, z0, x1, y1, z1, points)
+        Straight lines sampled at evenly spaced points at every step (``lines.csv``).
+    measured : tuple of (x, y, z, value, time, uncertainty)
+        Measured values the run is checked against (``validation.csv``); time and
+        uncertainty may be NaN (see :func:`phasegauge.io.read_measured_file`).
     """
 
     field: str
@@ -106,10 +113,19 @@ class MeasureOptions:
     sort_by_time: bool = False
     keep_3d: bool = False
 
+    probes: tuple = ()
+    lines: tuple = ()
+    measured: tuple = ()
+
     def __post_init__(self):
         set_ = object.__setattr__
+        from ._sampling import normalize_lines, normalize_measured, normalize_probes
+
         set_(self, "field_location", normalize_field_location(self.field_location))
         set_(self, "sort_by_time", bool(self.sort_by_time))
+        set_(self, "probes", normalize_probes(self.probes))
+        set_(self, "lines", normalize_lines(self.lines))
+        set_(self, "measured", normalize_measured(self.measured))
         if not isinstance(self.field, str) or not self.field:
             raise OptionError("a field name is needed", fix="give --field NAME (see 'phasegauge inspect')")
         set_(self, "value_range", parse_range(self.value_range))

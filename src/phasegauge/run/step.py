@@ -22,6 +22,7 @@ from ..errors import (AnalysisError, FieldNotFoundError, InputError, InputFileNo
 from ..model.fields import vector_field
 from ..model.indicator import make_indicator
 from ..model.outline import MeshOutline
+from ._sampling import sample_step
 
 __all__ = ["StepResult", "StepRunner", "analyse_step", "run_step", "STEP_ERRORS"]
 
@@ -61,6 +62,7 @@ class StepResult:
     outline: MeshOutline | None = None
     extra: object = None  # what options.step_extra returned (e.g. c sampled for a comparison)
     field_source: str = ""  # which copy of the field was read, in words
+    samples: np.ndarray | None = None  # field and c at the run's probe, line and measured points (n, 2)
 
     def labels(self, n_cells: int) -> tuple[np.ndarray, np.ndarray]:
         """Droplet label of every cell (-1: none) and the c dV weights of the labelled cells."""
@@ -170,6 +172,7 @@ def analyse_step(step, options, *, contour_dir: str | None = None, reported_mesh
                         outline=MeshOutline.of(mesh, centroids="droplets" in options.analyses))
     result.extra = options.step_extra(step, ind)
     result.field_source = ind.source
+    result.samples = sample_step(mesh, ind, options, where=step.info.where)
     m = {"step": step.index, "time": step.time}
     if flat is not None:  # measured per unit depth: say so in the steps table
         m["depth"] = float(flat.depth)

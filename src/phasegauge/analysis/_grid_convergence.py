@@ -1,0 +1,270 @@
+"""Grid convergence: apparent order, Richardson extrapolation and the Grid Convergence Index.
+
+The procedure is the one of Celik et al. (2008): three meshes of one case,
+fine (1), medium (2) and coarse (3), with representative cell sizes
+h1 < h2 < h3; the apparent order solves
+
+    p = |ln|eps32 / eps21| + q(p)| / ln r21,    q(p) = ln((r21^p - s) / (r32^p - s)),
+
+with eps21 = phi2 - phi1, eps32 = phi3 - phi2, s = sign(eps32 / eps21) and
+r21 = h2 / h1, r32 = h3 / h2, by fixed-point iteration (q = 0 for a constant
+ratio, where the first step is exact). Everything here is arrays in, arrays out.
+"""
+
+from __future__ import annotations
+
+import numpy as np
+
+from ..errors import OptionError
+
+__all__ = ["representative_cell_size", "grid_convergence", "convergence_table", "droplet_integrals", "paired_times",
+           "GCI_SAFETY_FACTOR", "CONVERGENCE_FIELDS", "CONVERGENCE_COLUMNS"]
+
+#: safety factor of the fine-grid GCI for three meshes (Roache 1998; Celik et al. 2008)
+GCI_SAFETY_FACTOR = 1.25
+
+#: names of the arrays :func:`grid_convergence` returns
+CONVERGENCE_FIELDS = ("refinement_ratio_21", "refinement_ratio_32", "apparent_order", "extrapolated",
+                      "relative_error_fine", "extrapolated_relative_error_fine", "gci_fine", "gci_medium",
+                      "asymptotic_ratio", "oscillatory")
+
+
+def representative_cell_size(total_measure, n_cells, dimension: int):
+    """Representative cell size h = (total measure / N)^(1/dimension).
+
+    Parameters
+    ----------
+    total_measure : float or ndarray
+        Area (2D) or volume (3D) of the mesh, in mesh length units to the power ``dimension``.
+    n_cells : int or ndarray
+        Number of cells.
+    dimension : {1, 2, 3}
+
+    Returns
+    -------
+    float or ndarray, in mesh length units
+
+    References
+    ----------
+    Celik, I. B., Ghia, U., Roache, P. J., Freitas, C. J., Coleman, H., Raad, P. E. (2008).
+    Procedure for estimation and reporting of uncertainty due to discretization in CFD
+    applications. J. Fluids Eng. 130, 078001, eq. (1)-(2).
+    """
+    if dimension not in (1, 2, 3):
+        raise OptionError(f"dimension must be 1, 2 or 3, found {dimension!r}", fix="give the mesh's dimension")
+    total = np.asarray(total_measure, dtype=float)
+    count = np.asarray(n_cells, dtype=float)
+    if np.any(count <= 0) or np.any(~(total > 0)):
+        raise OptionError(f"total measure and cell count must be positive, found {total_measure!r} and "
+                          f"{n_cells!r}", fix="give the measure and cell count of a non-empty mesh")
+    h = (total / count) ** (1.0 / dimension)
+    return float(h) if h.ndim == 0 else h
+
+
+def grid_convergence(fine, medium, coarse, *, cell_sizes, safety_factor: float = GCI_SAFETY_FACTOR,
+                     tolerance: float = 1e-12, max_iterations: int = 500) -> dict:
+    """Apparent order, extrapolated value and Grid Convergence Index of values on three meshes.
+
+    Parameters
+    ----------
+    fine, medium, coarse : float or array_like of shape (n,)
+        One quantity (or n quantities, element by element) on the fine, medium
+        and coarse mesh.
+    cell_sizes : sequence of 3 floats, or of 3 arrays of shape (n,)
+        Representative cell sizes h1 < h2 < h3 (fine, medium, coarse), in mesh length units.
+    safety_factor : float
+        Safety factor of the GCI (1.25 for three meshes).
+    tolerance : float
+        Fixed-point iteration stops when p changes by less than this.
+    max_iterations : int
+
+    Returns
+    -------
+    dict of str to ndarray of shape (n,) (or float for scalar input)
+        ``refinement_ratio_21`` (h2/h1), ``refinement_ratio_32`` (h3/h2),
+        ``apparent_order`` p, ``extrapolated`` phi_ext21, ``relative_error_fine``
+        (the approximate relative error e_a21 = |(phi1 - phi2)/phi1|),
+        ``extrapolated_relative_error_fine`` (e_ext21 = |(phi_ext21 - phi1)/phi_ext21|),
+        ``gci_fine`` (Fs e_a21 / (r21^p - 1)), ``gci_medium`` (Fs e_a32 / (r32^p - 1)),
+        ``asymptotic_ratio`` (GCI_medium / (r21^p GCI_fine), near 1 in the
+        asymptotic range), ``oscillatory`` (True when eps32/eps21 < 0). Relative
+        errors and GCIs are fractions, not percent. Where the order is undefined
+        (equal values on two meshes, no convergence of the iteration) the order
+        and everything after it is NaN.
+
+    Raises
+    ------
+    OptionError
+        Cell sizes not increasing from fine to coarse, or a safety factor below 1.
+
+    References
+    ----------
+    Celik, I. B., Ghia, U., Roache, P. J., Freitas, C. J., Coleman, H., Raad, P. E. (2008).
+    Procedure for estimation and reporting of uncertainty due to discretization in CFD
+    applications. J. Fluids Eng. 130, 078001, eqs. (3)-(10).
+    Roache, P. J. (1998). Verification and Validation in Computational Science and
+    Engineering. Hermosa, Albuquerque (the asymptotic-range check).
+    """
+    if not (safety_factor >= 1.0):
+        raise OptionError(f"safety factor must be at least 1, found {safety_factor!r}",
+                          fix="use 1.25 for three meshes (Celik et al. 2008)")
+    if len(cell_sizes) != 3:
+        raise OptionError(f"three cell sizes are needed (fine, medium, coarse), found {len(cell_sizes)}",
+                          fix="give h1 < h2 < h3")
+    scalar = np.ndim(fine) == 0 and np.ndim(medium) == 0 and np.ndim(coarse) == 0 and all(
+        np.ndim(h) == 0 for h in cell_sizes)
+    phi1, phi2, phi3, h1, h2, h3 = np.broadcast_arrays(*(np.atleast_1d(np.asarray(a, dtype=float)) for a in
+                                                         (fine, medium, coarse, *cell_sizes)))
+    if np.any(~(h1 > 0)) or np.any(~(h2 > h1)) or np.any(~(h3 > h2)):
+        raise OptionError("cell sizes must grow from the fine to the coarse mesh (h1 < h2 < h3)",
+                          fix="give the meshes in the order FINE MEDIUM COARSE")
+    r21, r32 = h2 / h1, h3 / h2
+    eps21, eps32 = phi2 - phi1, phi3 - phi2
+    with np.errstate(divide="ignore", invalid="ignore"):
+        ratio = eps32 / eps21
+        defined = np.isfinite(ratio) & (ratio != 0)
+        s = np.sign(ratio)
+        log_ratio = np.log(np.abs(ratio))
+        p = np.abs(log_ratio) / np.log(r21)  # q(p) = 0: the start, and the answer for constant ratios
+        converged = np.zeros(p.shape, dtype=bool)
+        for _ in range(max_iterations):
+            q = np.log((r21 ** p - s) / (r32 ** p - s))
+            p_new = np.abs(log_ratio + q) / np.log(r21)
+            step = np.abs(p_new - p)
+            converged = np.isfinite(p_new) & (step <= tolerance * np.maximum(1.0, np.abs(p_new)))
+            p = np.where(defined, p_new, np.nan)
+            if np.all(converged | ~defined | ~np.isfinite(p)):
+                break
+        p = np.where(defined & converged & (p > 0), p, np.nan)
+        r21p, r32p = r21 ** p, r32 ** p
+        extrapolated = (r21p * phi1 - phi2) / (r21p - 1.0)
+        e21 = np.abs((phi1 - phi2) / phi1)
+        e32 = np.abs((phi2 - phi3) / phi2)
+        e_ext = np.abs((extrapolated - phi1) / extrapolated)
+        gci_fine = safety_factor * e21 / (r21p - 1.0)
+        gci_medium = safety_factor * e32 / (r32p - 1.0)
+        asymptotic = gci_medium / (r21p * gci_fine)
+    out = {"refinement_ratio_21": r21, "refinement_ratio_32": r32, "apparent_order": p,
+           "extrapolated": extrapolated, "relative_error_fine": e21, "extrapolated_relative_error_fine": e_ext,
+           "gci_fine": gci_fine, "gci_medium": gci_medium, "asymptotic_ratio": asymptotic,
+           "oscillatory": defined & (s < 0)}
+    if scalar:
+        return {k: (bool(v[0]) if v.dtype == bool else float(v[0])) for k, v in out.items()}
+    return out
+
+
+#: leading columns of the convergence table (``convergence.csv``)
+CONVERGENCE_COLUMNS = ("quantity", "time", "value_fine", "value_medium", "value_coarse", "cell_size_fine",
+                       "cell_size_medium", "cell_size_coarse", "apparent_order", "extrapolated",
+                       "relative_error_fine", "gci_fine")
+
+_NOT_QUANTITIES = ("step", "time", "step_a", "step_b", "track")
+
+
+def droplet_integrals(droplets):
+    """Per-step integral quantities of a droplet table.
+
+    Parameters
+    ----------
+    droplets : DataFrame
+        One row per droplet per step with ``step``, ``time``, ``volume`` and
+        (optionally) ``equivalent_diameter``.
+
+    Returns
+    -------
+    DataFrame
+        One row per step: ``step``, ``time``, ``total_droplet_volume`` (sum of the
+        droplet volumes), ``largest_droplet_volume`` and ``mean_droplet_diameter``
+        (mean equivalent diameter), in mesh length units.
+    """
+    import pandas as pd
+
+    if droplets is None or not len(droplets) or "volume" not in droplets:
+        return pd.DataFrame(columns=["step", "time", "total_droplet_volume", "largest_droplet_volume",
+                                     "mean_droplet_diameter"])
+    grouped = droplets.groupby("step", sort=True)
+    out = pd.DataFrame({"time": grouped["time"].first(), "total_droplet_volume": grouped["volume"].sum(),
+                        "largest_droplet_volume": grouped["volume"].max()})
+    if "equivalent_diameter" in droplets:
+        out["mean_droplet_diameter"] = grouped["equivalent_diameter"].mean()
+    return out.reset_index()
+
+
+def paired_times(times_fine, times_medium, times_coarse) -> np.ndarray:
+    """The times at which three runs are compared: the fine run's times inside every run's time span.
+
+    A run with one step (a steady result) spans every time; three one-step runs pair at the fine time.
+    """
+    spans = [np.asarray(t, dtype=float) for t in (times_fine, times_medium, times_coarse)]
+    fine = spans[0]
+    keep = np.ones(fine.shape, dtype=bool)
+    for t in spans[1:]:
+        if len(t) > 1:
+            keep &= (fine >= t.min() - 1e-12 * max(1.0, abs(t.min()))) & (fine <= t.max() + 1e-12 * max(1.0, abs(t.max())))
+    return fine[keep]
+
+
+def _values_at(frame, column, times):
+    t = frame["time"].to_numpy(dtype=float)
+    v = frame[column].to_numpy(dtype=float)
+    if len(t) == 1:
+        return np.full(len(times), v[0])
+    order = np.argsort(t, kind="stable")
+    t, v = t[order], v[order]
+    exact = np.searchsorted(t, times)
+    exact = np.minimum(exact, len(t) - 1)
+    hit = np.isclose(t[exact], times, rtol=1e-12, atol=0.0)
+    return np.where(hit, v[exact], np.interp(times, t, v))
+
+
+def convergence_table(fine, medium, coarse, *, cell_sizes, safety_factor: float = GCI_SAFETY_FACTOR):
+    """Grid convergence of every scalar quantity of three runs' per-step tables, at paired times.
+
+    Parameters
+    ----------
+    fine, medium, coarse : DataFrame
+        Per-step tables with a ``time`` column and quantity columns (``steps.csv``,
+        optionally joined with :func:`droplet_integrals`).
+    cell_sizes : sequence of 3 floats
+        Representative cell sizes h1 < h2 < h3.
+    safety_factor : float
+
+    Returns
+    -------
+    DataFrame
+        One row per quantity and paired time: :data:`CONVERGENCE_COLUMNS`, then
+        ``refinement_ratio_21``, ``refinement_ratio_32``,
+        ``extrapolated_relative_error_fine``, ``gci_medium``, ``asymptotic_ratio`` and
+        ``oscillatory``. The medium and coarse values are interpolated linearly in
+        time at the fine run's times (exact where the times agree). Quantities are
+        the numeric columns all three tables share, except step numbers and time.
+
+    References
+    ----------
+    Celik et al. (2008), J. Fluids Eng. 130, 078001.
+    """
+    import pandas as pd
+
+    frames = (fine, medium, coarse)
+    for frame in frames:
+        if "time" not in frame:
+            raise OptionError("a per-step table has no 'time' column", fix="hand the steps tables of three runs")
+    shared = [c for c in fine.columns if c not in _NOT_QUANTITIES and all(c in f for f in frames[1:])
+              and all(pd.api.types.is_numeric_dtype(f[c]) and not pd.api.types.is_bool_dtype(f[c])
+                      for f in frames)]
+    times = paired_times(*(f["time"].to_numpy(dtype=float) for f in frames))
+    h = [float(x) for x in cell_sizes]
+    rows = []
+    for column in shared:
+        values = [_values_at(f, column, times) for f in frames]
+        figures = grid_convergence(*values, cell_sizes=h, safety_factor=safety_factor)
+        block = {"quantity": column, "time": times, "value_fine": values[0], "value_medium": values[1],
+                 "value_coarse": values[2], "cell_size_fine": h[0], "cell_size_medium": h[1],
+                 "cell_size_coarse": h[2]}
+        block.update(figures)
+        rows.append(pd.DataFrame(block))
+    extra = [c for c in CONVERGENCE_FIELDS if c not in CONVERGENCE_COLUMNS]
+    if not rows:
+        return pd.DataFrame(columns=list(CONVERGENCE_COLUMNS) + extra)
+    table = pd.concat(rows, ignore_index=True)
+    return table[list(CONVERGENCE_COLUMNS) + extra]

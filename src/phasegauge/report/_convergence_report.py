@@ -1,0 +1,101 @@
+"""The output folder of a grid convergence study: convergence.csv, convergence.png, manifest.json."""
+
+from __future__ import annotations
+
+import os
+import platform
+import time
+
+import numpy as np
+
+from ._canvas import new_figure
+from ._files import RUN_MARKER, atomic_save_figure, atomic_write_csv, atomic_write_json
+
+__all__ = ["write_convergence_report", "plot_convergence"]
+
+#: quantities drawn first when the table has them
+_DRAWN_FIRST = ("phase_volume", "interface_size", "interface_width", "mixing_index", "segregation_intensity",
+                "total_droplet_volume")
+
+
+def plot_convergence(table, *, quantities=None, limit: int = 5):
+    """Fine-grid GCI and apparent order over time, one curve per quantity.
+
+    Parameters
+    ----------
+    table : DataFrame
+        The convergence table (``quantity``, ``time``, ``gci_fine``, ``apparent_order``,
+        ``oscillatory``).
+    quantities : sequence of str, optional
+        Quantities to draw (default: the main ones the table holds, at most ``limit``).
+    limit : int
+
+    Returns
+    -------
+    matplotlib.figure.Figure
+    """
+    present = list(dict.fromkeys(table["quantity"])) if len(table) else []
+    if quantities is None:
+        finite = [q for q in present if np.isfinite(table.loc[table["quantity"] == q, "gci_fine"]).any()]
+        quantities = [q for q in _DRAWN_FIRST if q in finite] + [q for q in finite if q not in _DRAWN_FIRST]
+        quantities = quantities[:limit]
+    figure = new_figure(9.6, 3.8)
+    left, right = figure.subplots(1, 2)
+    for q in quantities:
+        rows = table[table["quantity"] == q].sort_values("time")
+        t = rows["time"].to_numpy(dtype=float)
+        gci = 100 * rows["gci_fine"].to_numpy(dtype=float)
+        line, = left.plot(t, gci, marker="o", ms=3, label=q)
+        right.plot(t, rows["apparent_order"].to_numpy(dtype=float), marker="o", ms=3, color=line.get_color(),
+                   label=q)
+        osc = rows["oscillatory"].to_numpy(dtype=bool)
+        if osc.any():
+            left.plot(t[osc], gci[osc], ls="none", marker="x", ms=7, color=line.get_color())
+    left.set_xlabel("time")
+    left.set_ylabel("fine-grid GCI (%)")
+    if any(np.nanmin(100 * table.loc[table["quantity"] == q, "gci_fine"]) > 0 for q in quantities):
+        left.set_yscale("log")
+    left.set_title("Grid Convergence Index (x: oscillatory)")
+    right.set_xlabel("time")
+    right.set_ylabel("apparent order p")
+    right.set_title("Apparent order")
+    if quantities:
+        left.legend(fontsize="small")
+    return figure
+
+
+def write_convergence_report(out, table, *, sources: list, safety_factor: float, options, version: str,
+                             started: float) -> None:
+    """Write the outputs of a grid convergence study into ``out`` (each file atomically).
+
+    Parameters
+    ----------
+    out : str or os.PathLike
+        The output folder (prepared by the run).
+    table : DataFrame
+        The convergence table.
+    sources : list of dict
+        The three runs as records (mesh, path, kind, cells, cell size...).
+    safety_factor : float
+    options : dict or None
+        The measure options of the runs measured here.
+    version : str
+    started : float
+        Start of the study (seconds since the epoch).
+    """
+    out = os.fspath(out)
+    atomic_write_csv(os.path.join(out, "convergence.csv"), table)
+    written = ["convergence.csv"]
+    if len(table):
+        figure = plot_convergence(table)
+        atomic_save_figure(os.path.join(out, "convergence.png"), figure)
+        written.append("convergence.png")
+    manifest = {
+        "tool": "phasegauge", "version": version, "command": "convergence",
+        "created": time.strftime("%Y-%m-%dT%H:%M:%S%z"),
+        "meshes": list(sources), "safety_factor": safety_factor, "options": options, "outputs": written,
+        "timings": {"total_seconds": round(time.time() - started, 3)},
+        "machine": {"python": platform.python_version(), "platform": platform.platform()},
+    }
+    atomic_write_json(os.path.join(out, "manifest.json"), manifest)
+    atomic_write_json(os.path.join(out, RUN_MARKER), {"run_key": "", "state": "complete"})

@@ -1,0 +1,218 @@
+"""Probes, lines and measured points in a measure run: the options, the per-step values, the tables.
+
+Every point a run samples (probes, then the points of each line, then each
+distinct measured position) is located once per mesh
+(:func:`phasegauge.analysis.probes.point_sampler`, cached on the mesh); a step
+keeps only the values there (:attr:`StepResult.samples`, 16 bytes a point) and
+the run assembles ``probes.csv``, ``lines.csv`` and ``validation.csv`` from them.
+"""
+
+from __future__ import annotations
+
+import math
+import warnings
+
+import numpy as np
+
+from ..errors import MeshWarning, OptionError
+
+__all__ = ["normalize_probes", "normalize_lines", "normalize_measured", "sample_layout", "sample_step",
+           "sample_tables", "PROBE_COLUMNS", "LINE_COLUMNS"]
+
+#: columns of probes.csv
+PROBE_COLUMNS = ("step", "time", "probe", "x", "y", "z", "value", "c")
+#: columns of lines.csv
+LINE_COLUMNS = ("step", "time", "line", "distance", "x", "y", "z", "value", "c")
+
+_MAX_POINTS = 1_000_000
+
+
+def _finite(values, what):
+    try:
+        out = tuple(float(v) for v in values)
+    except (TypeError, ValueError):
+        raise OptionError(f"{what} must be numbers, found {values!r}", fix="check the file or option") from None
+    if not all(math.isfinite(v) for v in out):
+        raise OptionError(f"{what} must be finite numbers, found {out}", fix="check the file or option")
+    return out
+
+
+def _unique_names(names, what):
+    seen = set()
+    for n in names:
+        if not n:
+            raise OptionError(f"every {what} needs a name", fix="fill the name column")
+        if n in seen:
+            raise OptionError(f"{what} name '{n}' repeats", fix="give every entry its own name")
+        seen.add(n)
+
+
+def normalize_probes(probes) -> tuple:
+    """Probes as a tuple of (name, x, y, z); (name, x, y) entries get z = 0."""
+    out = []
+    for entry in probes or ():
+        entry = tuple(entry)
+        if len(entry) not in (3, 4):
+            raise OptionError(f"a probe is (name, x, y[, z]), found {entry!r}", fix="see read_probe_file")
+        x, y, z = (_finite(entry[1:], f"probe '{entry[0]}' coordinates") + (0.0,))[:3]
+        out.append((str(entry[0]), x, y, z))
+    _unique_names([p[0] for p in out], "probe")
+    return tuple(out)
+
+
+def normalize_lines(lines) -> tuple:
+    """Lines as a tuple of (name, x0, y0, z0, x1, y1, z1, points)."""
+    out = []
+    total = 0
+    for entry in lines or ():
+        entry = tuple(entry)
+        if len(entry) not in (6, 8):
+            raise OptionError(f"a line is (name, x0, y0[, z0], x1, y1[, z1], points), found {entry!r}",
+                              fix="see read_line_file")
+        coords = _finite(entry[1:-1], f"line '{entry[0]}' ends")
+        if len(coords) == 4:
+            coords = (coords[0], coords[1], 0.0, coords[2], coords[3], 0.0)
+        points = entry[-1]
+        if isinstance(points, bool) or int(points) != points or int(points) < 2:
+            raise OptionError(f"line '{entry[0]}' needs a whole number of at least 2 points, found {points!r}",
+                              fix="for example 50")
+        total += int(points)
+        out.append((str(entry[0]),) + coords + (int(points),))
+    if total > _MAX_POINTS:
+        raise OptionError(f"the lines hold {total} points, more than {_MAX_POINTS}", fix="use fewer points per line")
+    _unique_names([p[0] for p in out], "line")
+    return tuple(out)
+
+
+def normalize_measured(measured) -> tuple:
+    """Measured values as a tuple of (x, y, z, value, time, uncertainty); time and uncertainty may be NaN."""
+    out = []
+    for entry in measured or ():
+        entry = tuple(float(v) for v in entry)
+        if len(entry) != 6:
+            raise OptionError(f"a measured value is (x, y, z, value, time, uncertainty), found {entry!r}",
+                              fix="read the file with read_measured_file")
+        if not all(math.isfinite(v) for v in entry[:4]) or (entry[5] < 0):
+            raise OptionError(f"measured position and value must be finite and the uncertainty >= 0, found {entry}",
+                              fix="check the measured file")
+        out.append(entry)
+    return tuple(out)
+
+
+def sample_layout(options) -> tuple:
+    """Every point a run samples, and where each group starts.
+
+    Returns
+    -------
+    points : ndarray of shape (n, 3)
+        Probes, then each line's points, then each distinct measured position.
+    parts : dict
+        ``probes`` (slice), ``lines`` (list of (name, slice, distance array)),
+        ``measured`` (slice, and ``measured_index``: per measured row, the index of its position).
+    """
+    from ..analysis.probes import line_points
+
+    chunks = []
+    parts = {}
+    start = 0
+    probes = np.array([p[1:4] for p in options.probes], dtype=float).reshape(-1, 3)
+    chunks.append(probes)
+    parts["probes"] = slice(0, len(probes))
+    start = len(probes)
+    parts["lines"] = []
+    for name, x0, y0, z0, x1, y1, z1, count in options.lines:
+        P, distance = line_points((x0, y0, z0), (x1, y1, z1), count)
+        chunks.append(P)
+        parts["lines"].append((name, slice(start, start + count), distance))
+        start += count
+    positions = np.array([m[:3] for m in options.measured], dtype=float).reshape(-1, 3)
+    unique, index = np.unique(positions, axis=0, return_inverse=True)
+    chunks.append(unique)
+    parts["measured"] = slice(start, start + len(unique))
+    parts["measured_index"] = np.asarray(index).ravel()
+    return np.concatenate(chunks), parts
+
+
+def sample_step(mesh, indicator, options, *, where: str = ""):
+    """The field and c at every sampled point of one step (None when the run samples none).
+
+    Returns
+    -------
+    ndarray of shape (n, 2) or None
+        Column 0 the field value (from c by the inverse of the range mapping, so
+        data on cells goes through the indicator's point values), column 1 c; NaN
+        outside the mesh. Points outside are named in one :class:`MeshWarning`.
+    """
+    from ..analysis.probes import point_sampler
+
+    if not (options.probes or options.lines or options.measured):
+        return None
+    points, parts = sample_layout(options)
+    sampler = point_sampler(mesh, points)
+    c = sampler(indicator.point)
+    lo, hi = options.value_range
+    value = lo + (hi - lo) * (c if options.phase == "upper" else 1.0 - c)
+    if not sampler.inside.all():
+        warnings.warn(MeshWarning(f"points outside the mesh (their values are empty): "
+                                  f"{_outside_names(sampler.inside, options, parts)}", where=where), stacklevel=2)
+    return np.column_stack([value, c])
+
+
+def _outside_names(inside, options, parts) -> str:
+    names = [options.probes[i][0] for i in np.flatnonzero(~inside[parts["probes"]])]
+    for name, sl, _ in parts["lines"]:
+        out = int(np.count_nonzero(~inside[sl]))
+        if out:
+            names.append(f"line {name} ({out} of {sl.stop - sl.start} points)")
+    measured = int(np.count_nonzero(~inside[parts["measured"]]))
+    if measured:
+        names.append(f"{measured} measured position{'s' if measured != 1 else ''}")
+    text = ", ".join(names[:12])
+    return text + (f" and {len(names) - 12} more" if len(names) > 12 else "")
+
+
+def sample_tables(results, options) -> tuple:
+    """``probes``, ``lines`` and the simulated values at the measured positions, from the steps' samples.
+
+    Returns
+    -------
+    probes, lines : DataFrame or None
+        The tables of probes.csv and lines.csv (None when the run has none).
+    measured_values : tuple (times (n_steps,), values (n_steps, n_positions)) or None
+    """
+    import pandas as pd
+
+    done = [r for r in results if r.skipped is None and getattr(r, "samples", None) is not None]
+    if not done or not (options.probes or options.lines or options.measured):
+        return None, None, None
+    points, parts = sample_layout(options)
+    steps = np.array([r.index for r in done])
+    times = np.array([r.time for r in done], dtype=float)
+    values = np.stack([r.samples for r in done])  # (n_steps, n_points, 2)
+    probes = lines = None
+
+    def block(sl, label_column, labels, extra=None):
+        n = sl.stop - sl.start
+        frame = {"step": np.repeat(steps, n), "time": np.repeat(times, n), label_column: np.tile(labels, len(done))}
+        if extra is not None:
+            frame.update(extra)
+        P = np.tile(points[sl], (len(done), 1))
+        frame.update({"x": P[:, 0], "y": P[:, 1], "z": P[:, 2], "value": values[:, sl, 0].ravel(),
+                      "c": values[:, sl, 1].ravel()})
+        return pd.DataFrame(frame)
+
+    if options.probes:
+        probes = block(parts["probes"], "probe", np.array([p[0] for p in options.probes], dtype=object))
+        probes = probes[list(PROBE_COLUMNS)]
+    if options.lines:
+        frames = []
+        for name, sl, distance in parts["lines"]:
+            n = sl.stop - sl.start
+            frames.append(block(sl, "line", np.full(n, name, dtype=object),
+                                {"distance": np.tile(distance, len(done))}))
+        lines = pd.concat(frames, ignore_index=True)
+        lines = lines.sort_values("step", kind="stable", ignore_index=True)[list(LINE_COLUMNS)]
+    measured = None
+    if options.measured:
+        measured = (times, values[:, parts["measured"], 0][:, parts["measured_index"]])
+    return probes, lines, measured

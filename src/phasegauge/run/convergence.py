@@ -1,0 +1,243 @@
+"""Grid convergence of a case run on three meshes (the ``convergence`` command).
+
+Each of the three inputs is a series (measured here with the same options) or
+the output folder of a finished ``measure`` run (its ``steps.csv``,
+``droplets.csv`` and ``manifest.json``). The representative cell size of each
+mesh comes from the first step's mesh (for a folder: of the series its manifest
+names) unless given. The figures are those of
+:func:`phasegauge.analysis.convergence.convergence_table`.
+"""
+
+from __future__ import annotations
+
+import dataclasses
+import os
+import time
+import warnings
+from dataclasses import dataclass, field
+
+from ..errors import InputError, InputFileNotFound, MeshWarning, OptionError, PhasegaugeWarning
+
+__all__ = ["ConvergenceSource", "ConvergenceResult", "grid_convergence_run", "is_measure_folder",
+           "MESH_NAMES"]
+
+#: the three meshes, finest first
+MESH_NAMES = ("fine", "medium", "coarse")
+
+
+@dataclass
+class ConvergenceSource:
+    """One of the three runs: where it came from, its tables and its mesh size."""
+
+    name: str
+    path: str
+    kind: str  # 'series' or 'measure folder'
+    steps: object = None
+    droplets: object = None
+    series_path: str = ""
+    n_cells: int = 0
+    dimension: int = 0
+    total_measure: float = float("nan")
+    cell_size: float = float("nan")
+    field: str = ""
+
+    def record(self) -> dict:
+        """The source as the manifest keeps it."""
+        return {"mesh": self.name, "path": os.path.abspath(self.path), "kind": self.kind,
+                "series": self.series_path, "field": self.field, "cells": self.n_cells,
+                "dimension": self.dimension, "total_measure": self.total_measure, "cell_size": self.cell_size,
+                "steps": 0 if self.steps is None else int(len(self.steps))}
+
+
+@dataclass
+class ConvergenceResult:
+    """The convergence table (a DataFrame) and the three sources."""
+
+    table: object
+    sources: list = field(default_factory=list)
+    safety_factor: float = 1.25
+
+
+def is_measure_folder(path) -> bool:
+    """True for the output folder of a finished measure run (``steps.csv`` and ``manifest.json``)."""
+    path = os.fspath(path)
+    return os.path.isdir(path) and all(os.path.isfile(os.path.join(path, n)) for n in ("steps.csv", "manifest.json"))
+
+
+def _check_cell_sizes(cell_sizes):
+    if cell_sizes is None:
+        return None
+    try:
+        sizes = tuple(float(h) for h in cell_sizes)
+    except (TypeError, ValueError):
+        raise OptionError(f"cell sizes must be three numbers, found {cell_sizes!r}",
+                          fix="give h_fine,h_medium,h_coarse") from None
+    if len(sizes) != 3 or not all(h > 0 for h in sizes) or not sizes[0] < sizes[1] < sizes[2]:
+        raise OptionError(f"cell sizes must be three positive numbers growing from fine to coarse, found {sizes}",
+                          fix="give h_fine,h_medium,h_coarse with h_fine < h_medium < h_coarse")
+    return sizes
+
+
+def _read_folder(source: ConvergenceSource) -> None:
+    import json
+
+    import pandas as pd
+
+    folder = source.path
+    try:
+        with open(os.path.join(folder, "manifest.json"), encoding="utf-8") as handle:
+            manifest = json.load(handle)
+        source.steps = pd.read_csv(os.path.join(folder, "steps.csv"))
+        drops = os.path.join(folder, "droplets.csv")
+        source.droplets = pd.read_csv(drops) if os.path.isfile(drops) and os.path.getsize(drops) else None
+    except (OSError, ValueError) as exc:
+        raise InputError(f"cannot read the measure run's tables ({exc})", where=folder,
+                         fix="give the output folder of a finished 'phasegauge measure' run") from None
+    if manifest.get("command") != "measure" or "time" not in source.steps:
+        raise InputError("is not the output folder of a measure run (no measure manifest or no time column)",
+                         where=folder, fix="give the output folder of a finished 'phasegauge measure' run, "
+                                           "or the series itself")
+    source.series_path = str((manifest.get("series") or {}).get("path", ""))
+    source.field = str((manifest.get("options") or {}).get("field", ""))
+
+
+def _mesh_size(source: ConvergenceSource, known: bool) -> None:
+    from ..io import Series
+
+    if known:
+        return
+    if source.kind == "measure folder" and not os.path.exists(source.series_path):
+        raise InputFileNotFound(f"the series this run measured ({source.series_path}) is not there, so its "
+                                "cell size is unknown", where=source.path,
+                                fix="give the cell sizes with --cell-sizes h_fine,h_medium,h_coarse")
+    with warnings.catch_warnings():  # the measure run reports the series' own warnings
+        warnings.simplefilter("ignore", PhasegaugeWarning)
+        with Series(source.series_path) as series:
+            mesh = series.read_mesh(0)
+    source.n_cells = int(mesh.n_cells)
+    source.dimension = int(mesh.dimension)
+    source.total_measure = float(mesh.total_measure)
+
+
+def grid_convergence_run(fine, medium, coarse, *, options=None, cell_sizes=None, safety_factor: float = 1.25,
+                         out=None, overwrite: bool = False, workers: int = 1,
+                         progress: bool | None = False) -> ConvergenceResult:
+    """Grid convergence of every per-step quantity of one case run on three meshes.
+
+    Parameters
+    ----------
+    fine, medium, coarse : str or os.PathLike
+        Each a series or the output folder of a finished measure run, finest mesh first.
+    options : MeasureOptions, optional
+        How to measure the inputs that are series (needed when one is).
+    cell_sizes : sequence of 3 floats, optional
+        Representative cell sizes h_fine < h_medium < h_coarse, in mesh length units.
+        Default: (total measure / number of cells)^(1/dimension) of each first step's mesh.
+    safety_factor : float
+        Safety factor of the GCI (1.25 for three meshes).
+    out : str or os.PathLike, optional
+        Output folder (``convergence.csv``, ``convergence.png``, ``manifest.json``);
+        refused when it exists unless ``overwrite``.
+    workers : int
+        Local worker processes for measuring series.
+    progress : bool or None
+
+    Returns
+    -------
+    ConvergenceResult
+
+    References
+    ----------
+    Celik et al. (2008), J. Fluids Eng. 130, 078001.
+    """
+    from ..report._files import output_transaction
+
+    with output_transaction(out):
+        return _run(fine, medium, coarse, options=options, cell_sizes=cell_sizes, safety_factor=safety_factor,
+                    out=out, overwrite=overwrite, workers=workers, progress=progress)
+
+
+def _run(fine, medium, coarse, *, options, cell_sizes, safety_factor, out, overwrite, workers, progress):
+    from ..analysis.convergence import convergence_table, droplet_integrals, representative_cell_size
+    from .options import check_workers
+
+    started = time.time()
+    sizes = _check_cell_sizes(cell_sizes)
+    if not safety_factor >= 1.0:
+        raise OptionError(f"safety factor must be at least 1, found {safety_factor!r}",
+                          fix="use 1.25 for three meshes (Celik et al. 2008)")
+    check_workers(workers)
+    sources = []
+    for name, path in zip(MESH_NAMES, (fine, medium, coarse)):
+        path = os.fspath(path)
+        if not os.path.exists(path) and not any(ch in path for ch in "*?["):
+            raise InputFileNotFound("not found", where=path, fix=f"give the {name} run's series or measure folder")
+        source = ConvergenceSource(name=name, path=path,
+                                   kind="measure folder" if is_measure_folder(path) else "series")
+        if source.kind == "measure folder":
+            _read_folder(source)
+            if options is not None and source.field and options.field != source.field:
+                raise OptionError(f"the {name} run measured field '{source.field}', not '{options.field}'",
+                                  where=path, fix="measure the three runs with the same field")
+        else:
+            if options is None:
+                raise OptionError(f"the {name} input is a series, so the field to measure is needed", where=path,
+                                  fix="give --field (and --range, --phase as for measure)")
+            source.series_path, source.field = os.path.abspath(path), options.field
+        _mesh_size(source, known=sizes is not None)
+        sources.append(source)
+    if sizes is None:
+        dims = {s.dimension for s in sources}
+        if len(dims) != 1:
+            raise InputError(f"the three meshes have different dimensions ({sorted(dims)})",
+                             fix="give three runs of the same case")
+        sizes = tuple(representative_cell_size(s.total_measure, s.n_cells, s.dimension) for s in sources)
+        measures = [s.total_measure for s in sources]
+        if max(measures) > 1.01 * min(measures):
+            warnings.warn(MeshWarning(f"the three meshes cover different measures ({', '.join(f'{m:g}' for m in measures)}): "
+                                      "are they the same case?"))
+        if not sizes[0] < sizes[1] < sizes[2]:
+            raise OptionError("the representative cell sizes do not grow from the fine to the coarse mesh "
+                              f"({', '.join(f'{h:.4g}' for h in sizes)})",
+                              fix="give the runs in the order FINE MEDIUM COARSE")
+    for source, h in zip(sources, sizes):
+        source.cell_size = float(h)
+    if out is not None:
+        from ..io import Series
+        from ..report._files import prepare_output_folder
+        from .measure import check_output_place
+
+        for source in sources:
+            if source.kind == "series":
+                with warnings.catch_warnings():
+                    warnings.simplefilter("ignore", PhasegaugeWarning)
+                    with Series(source.path) as series:
+                        check_output_place(series, out)
+            elif os.path.abspath(out) == os.path.abspath(source.path):
+                raise OptionError("the output folder is one of the measure folders read", where=out,
+                                  fix="choose another output folder")
+        prepare_output_folder(out, overwrite=overwrite, run_key="")
+    from .measure import measure
+
+    for source in sources:
+        if source.kind == "series":
+            res = measure(source.path, options=options, workers=workers, progress=progress, snapshots=0,
+                          write_contours=False)
+            source.steps, source.droplets = res.steps, res.droplets
+    tables = []
+    for source in sources:
+        steps = source.steps
+        integrals = droplet_integrals(source.droplets)
+        if len(integrals):
+            steps = steps.merge(integrals.drop(columns=["time"]), on="step", how="left")
+        tables.append(steps)
+    table = convergence_table(*tables, cell_sizes=sizes, safety_factor=safety_factor)
+    result = ConvergenceResult(table=table, sources=sources, safety_factor=safety_factor)
+    if out is not None:
+        from ._report_data import package_version
+        from ..report._convergence_report import write_convergence_report
+
+        write_convergence_report(out, table, sources=[s.record() for s in sources], safety_factor=safety_factor,
+                                 options=None if options is None else dataclasses.asdict(options),
+                                 version=package_version(), started=started)
+    return result
