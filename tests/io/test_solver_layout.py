@@ -16,7 +16,7 @@ import pyvista
 from phasegauge.errors import InputFileNotFound, SeriesError, SeriesWarning, UnreadableFileError
 from phasegauge.io import MESH_SUFFIXES, Series, natural_key
 from phasegauge.io.describe import describe_series, format_description
-from phasegauge.samples._vof_tank import TANK, tank_fields, write_vof_tank
+from phasegauge.samples._vof_tank import TANK, write_vof_tank
 
 STEPS = TANK.steps  # 0, 12, 114, 132, 1000: sorting whole paths as text gives 0, 1000, 114, 12, 132
 

@@ -7,10 +7,11 @@ import pandas as pd
 import pytest
 from click.testing import CliRunner
 
+from conftest import write_listing
 from phasegauge import measure
 from phasegauge.cli import main
 from phasegauge.errors import OptionError
-from phasegauge.meshgen import grid_mesh, to_meshio
+from phasegauge.meshgen import grid_mesh
 from phasegauge.run.convergence import grid_convergence_run
 from phasegauge.run.options import MeasureOptions
 
@@ -27,15 +28,8 @@ def _series(folder, n, times):
     os.makedirs(folder, exist_ok=True)
     mesh = grid_mesh((n, n), kind="quad")
     x = mesh.cell_centroids[:, 0]
-    lines = []
-    for k, t in enumerate(times):
-        name = f"s_{k}.vtu"
-        to_meshio(mesh, cell_data={"c": x ** 2 * (1 - t / 2)}).write(os.path.join(folder, name))
-        lines.append(f"{t},{name}")
-    listing = os.path.join(folder, "run.steps")
-    with open(listing, "w") as f:
-        f.write("\n".join(lines) + "\n")
-    return listing
+    return write_listing(folder, ((t, f"s_{k}.vtu", mesh, {"c": x ** 2 * (1 - t / 2)})
+                                  for k, t in enumerate(times)))
 
 
 def _three(tmp_path):

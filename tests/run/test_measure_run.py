@@ -12,6 +12,7 @@ import pandas as pd
 import pytest
 from click.testing import CliRunner
 
+from conftest import write_listing
 from phasegauge import measure
 from phasegauge.cli import main
 from phasegauge.errors import OptionError, OutputError, SeriesError
@@ -27,20 +28,16 @@ def _moving_disc_series(folder, steps=6, n=24, kind="triangle"):
     """Two discs drifting together on a fixed mesh, volume fraction on cells, time in a listing."""
     mesh = grid_mesh((n, n), kind=kind)
     x, y = mesh.cell_centroids[:, 0], mesh.cell_centroids[:, 1]
-    lines = []
-    for k in range(steps):
+
+    def alpha(k):
         d = 0.3 - 0.05 * k
         c = np.zeros(mesh.n_cells)
         for cx in (0.5 - d, 0.5 + d):
             r = np.hypot(x - cx, y - 0.5)
             c = np.maximum(c, 0.5 * (1 + np.tanh((0.15 - r) / 0.02)))
-        name = f"disc_{k}.vtu"
-        to_meshio(mesh, cell_data={"alpha": c}).write(os.path.join(folder, name))
-        lines.append(f"{0.1 * k},{name}")
-    listing = os.path.join(folder, "run.steps")
-    with open(listing, "w") as f:
-        f.write("\n".join(lines) + "\n")
-    return listing
+        return c
+
+    return write_listing(folder, ((0.1 * k, f"disc_{k}.vtu", mesh, {"alpha": alpha(k)}) for k in range(steps)))
 
 
 def _tables(out):

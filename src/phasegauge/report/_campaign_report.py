@@ -3,13 +3,13 @@
 from __future__ import annotations
 
 import os
-import platform
 import time
 
 import numpy as np
 
 from ._canvas import new_figure
 from ._files import RUN_MARKER, atomic_save_figure, atomic_write_csv, atomic_write_json
+from ._measure_report import manifest as run_manifest
 
 __all__ = ["write_campaign_report", "plot_campaign"]
 
@@ -55,13 +55,10 @@ def write_campaign_report(out, table, *, parameter: str, unit: str, version: str
     if figure is not None:
         atomic_save_figure(os.path.join(out, "campaign.png"), figure)
         written.append("campaign.png")
-    manifest = {
-        "tool": "phasegauge", "version": version, "command": "campaign",
-        "created": time.strftime("%Y-%m-%dT%H:%M:%S%z"), "parameter": parameter, "unit": unit,
-        "runs": [{"run": r, "parameter": p, "path": s, "folder": f} for r, p, s, f in
-                 zip(table["run"], table["parameter"], table["path"], table["folder"])],
-        "outputs": written, "timings": {"total_seconds": round(time.time() - started, 3)},
-        "machine": {"python": platform.python_version(), "platform": platform.platform()},
-    }
+    runs = [{"run": r, "parameter": p, "path": s, "folder": f} for r, p, s, f in
+            zip(table["run"], table["parameter"], table["path"], table["folder"])]
+    manifest = run_manifest("campaign", version=version, inputs=[],
+                            fields={"parameter": parameter, "unit": unit, "runs": runs},
+                            outputs=written, timings={"total_seconds": round(time.time() - started, 3)})
     atomic_write_json(os.path.join(out, "manifest.json"), manifest)
     atomic_write_json(os.path.join(out, RUN_MARKER), {"run_key": run_key, "state": "complete"})

@@ -3,13 +3,13 @@
 from __future__ import annotations
 
 import os
-import platform
 import time
 
 import numpy as np
 
 from ._canvas import new_figure
 from ._files import RUN_MARKER, atomic_save_figure, atomic_write_csv, atomic_write_json
+from ._measure_report import manifest as run_manifest
 
 __all__ = ["write_convergence_report", "plot_convergence"]
 
@@ -90,12 +90,8 @@ def write_convergence_report(out, table, *, sources: list, safety_factor: float,
         figure = plot_convergence(table)
         atomic_save_figure(os.path.join(out, "convergence.png"), figure)
         written.append("convergence.png")
-    manifest = {
-        "tool": "phasegauge", "version": version, "command": "convergence",
-        "created": time.strftime("%Y-%m-%dT%H:%M:%S%z"),
-        "meshes": list(sources), "safety_factor": safety_factor, "options": options, "outputs": written,
-        "timings": {"total_seconds": round(time.time() - started, 3)},
-        "machine": {"python": platform.python_version(), "platform": platform.platform()},
-    }
+    manifest = run_manifest("convergence", version=version, inputs=[],
+                            fields={"meshes": list(sources), "safety_factor": safety_factor, "options": options},
+                            outputs=written, timings={"total_seconds": round(time.time() - started, 3)})
     atomic_write_json(os.path.join(out, "manifest.json"), manifest)
     atomic_write_json(os.path.join(out, RUN_MARKER), {"run_key": "", "state": "complete"})
