@@ -33,3 +33,22 @@ def test_cli_starts_without_heavy_libraries():
             "'skimage', 'dask', 'scipy.spatial') if m in sys.modules]; print(','.join(heavy))")
     out = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True, env=subprocess_env())
     assert out.returncode == 0 and out.stdout.strip() == "", out.stdout + out.stderr
+
+
+def test_the_command_line_starts_without_the_numeric_stack():
+    """`phasegauge --help` imports neither numpy nor meshio (the API loads on first use, PEP 562);
+    checked in a fresh interpreter's sys.modules, not by timing."""
+    import subprocess
+    import sys
+
+    from conftest import subprocess_env
+
+    code = ("import sys, phasegauge.cli, phasegauge; "
+            "print(sorted(m for m in ('numpy', 'meshio', 'scipy', 'pandas') if m in sys.modules))")
+    out = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True, env=subprocess_env())
+    assert out.returncode == 0, out.stderr
+    assert out.stdout.strip() == "[]"
+    import phasegauge
+
+    assert phasegauge.measure.__module__ == "phasegauge.run.measure"
+    assert set(phasegauge.__all__) <= set(dir(phasegauge))
