@@ -17,7 +17,7 @@ from phasegauge.samples import (SAMPLE_NAMES, advect, cahn_hilliard, channel_con
 ROOT = os.path.join(os.path.dirname(__file__), os.pardir, "sample_fields")
 PATHS = {"filament_breakup": "filament_breakup.xdmf", "vortex_upwind": "vortex_upwind",
          "vortex_sharp": "vortex_sharp", "channel_mixing": "channel_mixing.xdmf",
-         "droplets_3d": "droplets_3d.xdmf"}
+         "droplets_3d": "droplets_3d.xdmf", "solvent_quench": "solvent_quench.xdmf"}
 #: name -> (steps, dimension, cell type, {field: location})
 EXPECTED = {
     "filament_breakup": (40, 2, "triangle", {"phi": "point"}),
@@ -25,6 +25,7 @@ EXPECTED = {
     "vortex_sharp": (17, 2, "quad", {"c": "cell", "velocity": "cell"}),
     "channel_mixing": (3, 2, "triangle", {"c": "point", "velocity": "point"}),
     "droplets_3d": (21, 3, "hexahedron", {"phi": "point", "velocity": "point"}),
+    "solvent_quench": (11, 2, "quad", {"x": "cell", "s": "cell", "T": "cell"}),
 }
 
 

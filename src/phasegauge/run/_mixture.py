@@ -73,7 +73,7 @@ def normalize_mixture(options) -> dict:
         if value is not None and (not isinstance(value, str) or not value):
             raise OptionError(f"{name.replace('_', ' ')} must be a field name, found {value!r}",
                               fix="see the fields with 'phasegauge inspect'")
-    out["bulk_widths"] = _positive(options.bulk_widths, "bulk widths", "2 widths from the contour is the default")
+    out["bulk_widths"] = _positive(options.bulk_widths, "bulk widths", "1 width (5-95 %) from the contour is the default")
     out["equilibrium_tolerance"] = _positive(options.equilibrium_tolerance, "equilibrium tolerance",
                                              "for example 0.01 (mole fraction)")
     if options.capillary_length is not None:
@@ -254,14 +254,15 @@ def mixture_findings(steps, options) -> list:
             figures["equilibrium_time"] = reached
             found.append(Finding("binodal_reached", "note",
                                  f"bulk compositions on the binodal within {tol:g} from t = {reached:g} "
-                                 f"(gap {final_gap:.3g} at the last step)", figures))
+                                 f"(gap {final_gap:.3g} at t = {figures['time']:g})", figures))
         elif np.isfinite(shift) and final_gap <= tol + shift:
             found.append(Finding("binodal_gibbs_thomson", "note",
                                  f"bulk compositions off the planar binodal by {final_gap:.3g}, within the "
                                  f"Gibbs-Thomson shift {shift:.3g} expected for drops of radius {radius:.3g} "
                                  f"(tolerance {tol:g})", figures))
         else:
-            text = f"bulk compositions off the binodal by {final_gap:.3g} at the last step (tolerance {tol:g})"
+            text = (f"bulk compositions off the binodal by {final_gap:.3g} at t = {figures['time']:g}, the last "
+                    f"separated step (tolerance {tol:g})")
             if np.isfinite(radius):
                 text += f"; drop radius {radius:.3g}"
                 if np.isfinite(shift):

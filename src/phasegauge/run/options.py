@@ -100,7 +100,8 @@ class MeasureOptions:
     solute_receiving : {'rich', 'lean'}
         The phase the solute moves into (extraction progress, partition coefficient).
     bulk_widths : float
-        Cells farther than this many measured interface widths from the contour are the bulk.
+        Cells farther than this many measured interface widths (5-95 %) from the contour are the
+        bulk (1 width is about 4 Cahn-Hilliard eps, where the tanh tail is 0.35 %).
     equilibrium_tolerance : float
         Mole-fraction gap to the binodal below which a run counts as at equilibrium.
     capillary_length : float or None
@@ -139,7 +140,7 @@ class MeasureOptions:
     temperature_field: str | None = None
     solute: str | None = None
     solute_receiving: str = "rich"
-    bulk_widths: float = 2.0
+    bulk_widths: float = 1.0
     equilibrium_tolerance: float = 0.01
     capillary_length: float | None = None
 
