@@ -185,3 +185,22 @@ def test_the_solvent_quench_sample_separates_cold_and_mixes_hot():
     assert np.ptp(steps["mean_composition"]) < 1e-6
     assert cold["partition_coefficient"].iat[-1] > 2     # the solute moves into the rich liquid (K = 3 built in)
     assert "binodal_reached" in [f.kind for f in res.findings]
+
+
+def test_miscibility_recipe_table_is_checked_before_any_work(tmp_path):
+    from phasegauge.recipes import load_recipe
+
+    base = '[input]\npath = "x.vtu"\nfield = "x"\n[output]\nfolder = "o"\n'
+    recipe = tmp_path / "r.toml"
+    recipe.write_text(base + '[miscibility]\nmodle = "m.toml"\n')
+    with pytest.raises(OptionError, match="did you mean 'model'"):
+        load_recipe(recipe)
+    recipe.write_text(base + '[miscibility]\ntemperature = 300.0\n')
+    with pytest.raises(OptionError, match=r"\[miscibility\] needs 'model'"):
+        load_recipe(recipe)
+    _model_file(tmp_path)
+    recipe.write_text(base + '[miscibility]\nmodel = "regular.toml"\n')
+    with pytest.raises(OptionError, match=r"\[miscibility\] a mixture model needs one temperature"):
+        load_recipe(recipe)
+    recipe.write_text(base + '[miscibility]\nmodel = "regular.toml"\ntemperature = 300.0\n')
+    assert load_recipe(recipe)["miscibility"]["model"] == str(tmp_path / "regular.toml")

@@ -38,6 +38,7 @@ def plot_compositions_on_diagram(steps, diagram: dict):
     shown = None
     for column, marker in (("bulk_composition_lean", "o"), ("bulk_composition_rich", "o")):
         shown = ax.scatter(steps[column].to_numpy(dtype=float), temperature, c=time, marker=marker, s=26,
+                           edgecolors="0.2", linewidths=0.5,
                            label="bulk compositions" if column.endswith("lean") else None, **norm)
     ax.scatter(steps["mean_composition"].to_numpy(dtype=float), temperature, c=time, marker="x", s=26,
                label="mean composition", **norm)

@@ -225,7 +225,7 @@ def mixture_findings(steps, options) -> list:
         still = bool(wrong[last])
         text = (f"separated although the model predicts one stable phase at {_temperature_text(steps, wrong)} "
                 f"({int(wrong.sum())} step(s), t = {times[0]:g} to {times[-1]:g})"
-                + ("" if still else "; mixed by the last step"))
+                + ("" if still else "; mixed later"))
         found.append(Finding("separated_one_phase", "warning" if still else "note", text,
                              {"steps": int(wrong.sum()), "first_time": times[0], "last_time": times[-1],
                               "at_last_step": still}))
@@ -234,7 +234,7 @@ def mixture_findings(steps, options) -> list:
         times = _times(steps, unstable)
         still = bool(unstable[last])
         text = (f"still mixed inside the spinodal ({int(unstable.sum())} step(s), t = {times[0]:g} to {times[-1]:g})"
-                + ("" if still else "; separated by the last step"))
+                + ("" if still else "; separated later"))
         found.append(Finding("mixed_inside_spinodal", "warning" if still else "note", text,
                              {"steps": int(unstable.sum()), "first_time": times[0], "last_time": times[-1],
                               "at_last_step": still}))

@@ -35,7 +35,9 @@ class Finding:
     kind : str
         ``interface_widening``, ``phase_volume_drift``, ``open_boundary``,
         ``indicator_overshoot``, ``interface_under_resolved``,
-        ``droplets_under_resolved``, ``steps_skipped``, or ``warning`` (a
+        ``droplets_under_resolved``, ``steps_skipped``, the mixture findings
+        (``separated_one_phase``, ``mixed_inside_spinodal``, ``binodal_gap``,
+        ``binodal_gibbs_thomson``, ``binodal_reached``; see ``run/_mixture.py``), or ``warning`` (a
         warning of the steps or the series, repeats collapsed).
     severity : {'warning', 'note'}
         ``warning``: the numbers need a closer look; ``note``: how to read them.
