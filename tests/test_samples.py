@@ -17,7 +17,7 @@ from phasegauge.samples import (SAMPLE_NAMES, advect, cahn_hilliard, channel_con
 ROOT = os.path.join(os.path.dirname(__file__), os.pardir, "sample_fields")
 PATHS = {"filament_breakup": "filament_breakup.xdmf", "vortex_upwind": "vortex_upwind",
          "vortex_sharp": "vortex_sharp", "channel_mixing": "channel_mixing.xdmf",
-         "droplets_3d": "droplets_3d.xdmf"}
+         "droplets_3d": "droplets_3d.xdmf", "solvent_quench": "solvent_quench.xdmf"}
 #: name -> (steps, dimension, cell type, {field: location})
 EXPECTED = {
     "filament_breakup": (40, 2, "triangle", {"phi": "point"}),
@@ -25,6 +25,7 @@ EXPECTED = {
     "vortex_sharp": (17, 2, "quad", {"c": "cell", "velocity": "cell"}),
     "channel_mixing": (3, 2, "triangle", {"c": "point", "velocity": "point"}),
     "droplets_3d": (21, 3, "hexahedron", {"phi": "point", "velocity": "point"}),
+    "solvent_quench": (11, 2, "quad", {"x": "cell", "s": "cell", "T": "cell"}),
 }
 
 
@@ -294,3 +295,22 @@ def test_droplets_3d_merge_and_conserve_volume():
     assert counts == sorted(counts, reverse=True)       # one merge, no breakup
     # advective Cahn-Hilliard with a divergence-free flow conserves int phi; float32 storage
     assert np.ptp(means) < 1e-6
+
+
+def test_cahn_hilliard_with_the_nrtl_free_energy_reaches_the_binodal():
+    """A planar Cahn-Hilliard equilibrium has the common-tangent compositions on its plateaus (Cahn &
+    Hilliard 1958): the solvent_quench generator's force, relaxed on a slab, meets the binodal that
+    analysis.thermo solves by isoactivity."""
+    from phasegauge.analysis.thermo import equilibrium_at
+    from phasegauge.samples._miscibility import _force_scale, nrtl_force, solvent_pair_model
+
+    model, t = solvent_pair_model(), 298.15
+    eq = equilibrium_at(model, t)
+    scale = _force_scale(model, t, eq.binodal_lean)
+    x = (np.arange(128) + 0.5) / 128
+    x0 = np.where(np.abs(x - 0.5) < 0.25, 0.8, 0.2)[:, None] * np.ones((1, 4))
+    out = cahn_hilliard(2 * x0 - 1, (1.0, 4 / 128), epsilon=0.02, mobility=1.0, dt=2e-5, save_steps=[3000],
+                        stabilization=4.0, bulk_force=nrtl_force(model, t, reference=t, scale=scale))
+    xe = 0.5 * (1 + out[-1][:, 0])
+    assert xe.min() == pytest.approx(eq.binodal_lean, abs=1e-5)
+    assert xe.max() == pytest.approx(eq.binodal_rich, abs=1e-5)

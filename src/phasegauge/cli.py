@@ -179,6 +179,37 @@ _measure_options = (
 )
 
 
+#: options of a partially miscible mixture (measure)
+_mixture_options = (
+    click.option("--model", "model_file", default=None,
+                 help="Mixture model file (TOML, see 'phasegauge equilibrium'): bulk compositions against its binodal."),
+    click.option("--temperature", type=float, default=None, help="Temperature of the run in K (with --model)."),
+    click.option("--temperature-field", default=None, help="Field holding the temperature (instead of --temperature)."),
+    click.option("--solute", default=None, help="Field of a solute's mole fraction distributed between the phases."),
+    click.option("--solute-receiving", type=click.Choice(["rich", "lean"]), default="rich", show_default=True,
+                 help="The phase the solute moves into."),
+    click.option("--bulk-widths", type=float, default=1.0, show_default=True,
+                 help="Bulk cells lie farther than this many interface widths from the contour."),
+    click.option("--equilibrium-tolerance", type=float, default=0.01, show_default=True,
+                 help="Gap to the binodal (mole fraction) below which the run is at equilibrium."),
+    click.option("--capillary-length", type=float, default=None,
+                 help="sigma v_m / (R T) in mesh length units: the Gibbs-Thomson shift of drops."),
+)
+
+
+def _mixture_values(model_file=None, temperature=None, temperature_field=None, solute=None,
+                    solute_receiving="rich", bulk_widths=1.0, equilibrium_tolerance=0.01,
+                    capillary_length=None) -> dict:
+    """MeasureOptions entries of a mixture run (none without --model, unless others are given alone)."""
+    given = {"temperature": temperature, "temperature_field": temperature_field, "solute": solute,
+             "capillary_length": capillary_length}
+    values = {k: v for k, v in given.items() if v is not None}
+    if model_file is None:
+        return values  # a value without a model is refused by MeasureOptions
+    return {"model": model_file, **values, "solute_receiving": solute_receiving, "bulk_widths": bulk_widths,
+            "equilibrium_tolerance": equilibrium_tolerance}
+
+
 def _add(options):
     def wrap(f):
         for opt in reversed(options):
@@ -230,11 +261,12 @@ def _add(options):
               help="CSV of sample lines, 'name,x0,y0[,z0],x1,y1[,z1],points' (lines.csv).")
 @click.option("--measured", "measured_file", default=None,
               help="CSV of measured values, 'x,y[,z],value[,time][,uncertainty]' (validation.csv).")
+@_add(_mixture_options)
 def measure(path, field, value_range, phase, level, velocity, field_location, sort_by_time, out, analyses,
             adjacency, periodic,
             ignore_remerge, densities, diffusivity, box, section_axis, section_count, section_at,
             mixing_target, segregation_scale, drift_tolerance, workers, scheduler, resume, overwrite, strict, keep_3d,
-            no_contours, snapshots, quiet, probe_file, line_file, measured_file):
+            no_contours, snapshots, quiet, probe_file, line_file, measured_file, **mixture):
     """Measure interface, droplets, mixing and conservation on every step of PATH.
 
     PATH is a mesh file, an XDMF time series, a folder of numbered files, a
@@ -253,7 +285,7 @@ def measure(path, field, value_range, phase, level, velocity, field_location, so
         segregation_scale=segregation_scale,
         drift_tolerance=drift_tolerance, strict=strict, field_location=field_location or "auto",
         sort_by_time=sort_by_time, keep_3d=keep_3d,
-        **_point_options(probe_file, line_file, measured_file))
+        **_point_options(probe_file, line_file, measured_file), **_mixture_values(**mixture))
     result = run_measure(path, options=options, out=out, workers=workers, scheduler=scheduler,
                          overwrite=overwrite, resume=resume, progress=None if not quiet else False,
                          write_contours=not no_contours, snapshots=snapshots)

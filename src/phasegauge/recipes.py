@@ -42,6 +42,14 @@ A measure recipe::
     folder = "../out/filament"      # relative to the recipe
     overwrite = true
 
+    [miscibility]              # optional: bulk compositions against a mixture model
+    model = "solvent_pair.toml"   # model file, relative to the recipe
+    temperature = 298.15       # K (or temperature_field = "T")
+    solute = "s"               # optional solute field; solute_receiving = "rich" or "lean"
+    bulk_widths = 2.0          # bulk cells: farther than this many widths from the contour
+    tolerance = 0.01           # gap to the binodal counted as equilibrium
+    capillary_length = 0.01    # optional: sigma v_m / (R T), for the Gibbs-Thomson shift
+
     [validation]               # optional; CSV files relative to the recipe
     probes = "probes.csv"      # name,x,y[,z]
     lines = "lines.csv"        # name,x0,y0[,z0],x1,y1[,z1],points
@@ -82,6 +90,9 @@ RECIPE_SCHEMA = {
     "run": {"analyses": list, "workers": int, "scheduler": str, "strict": bool, "snapshots": int},
     "output": {"folder": str, "overwrite": bool},
     "validation": {"probes": str, "lines": str, "measured": str},
+    "miscibility": {"model": str, "temperature": (int, float), "temperature_field": str, "solute": str,
+                    "solute_receiving": str, "bulk_widths": (int, float), "tolerance": (int, float),
+                    "capillary_length": (int, float)},
 }
 
 #: a campaign recipe: a measure recipe whose [input] has no path, a [campaign] table and [[runs]]
@@ -179,6 +190,10 @@ def load_recipe(path) -> dict:
         data["compare"]["reference_table"] = _resolve(base, data["compare"]["reference_table"])
     for entry in data.get("runs", []) if kind == "campaign" else []:
         entry["path"] = _resolve(base, entry["path"])
+    if "model" in data.get("miscibility", {}):
+        data["miscibility"]["model"] = _resolve(base, data["miscibility"]["model"])
+    if "miscibility" in data:
+        _check_miscibility(data["miscibility"], path)
     for key in data.get("validation", {}):
         data["validation"][key] = _resolve(base, data["validation"][key])
     if "validation" in data:
@@ -329,10 +344,28 @@ def measure_arguments(recipe: dict) -> dict:
         drift_tolerance=cons.get("drift_tolerance", 1e-3),
         strict=run.get("strict", False), field_location=inp.get("field_location", "auto"),
         sort_by_time=inp.get("sort_by_time", False), keep_3d=inp.get("keep_3d", False),
-        **_point_options(recipe.get("validation", {})))
+        **_point_options(recipe.get("validation", {})), **_mixture_options(recipe.get("miscibility", {})))
     return dict(path=inp.get("path"), options=options, out=out["folder"], overwrite=out.get("overwrite", False),
                 workers=run.get("workers", 1), scheduler=run.get("scheduler"),
                 write_contours=iface.get("contours", True), snapshots=run.get("snapshots", 4))
+
+
+def _mixture_options(miscibility: dict) -> dict:
+    """MeasureOptions entries of a recipe's [miscibility] table."""
+    names = {"tolerance": "equilibrium_tolerance"}
+    return {names.get(key, key): value for key, value in miscibility.items()}
+
+
+def _check_miscibility(miscibility: dict, path: str) -> None:
+    """Check the [miscibility] table as a whole (the model is read here), naming the table."""
+    from .run.options import MeasureOptions
+
+    if "model" not in miscibility:
+        raise OptionError("[miscibility] needs 'model'", where=path, fix='add model = "MODEL.toml"')
+    try:
+        MeasureOptions(field="c", **_mixture_options(miscibility))
+    except OptionError as err:
+        raise OptionError(f"[miscibility] {err.what}", where=err.where or path, fix=err.fix) from None
 
 
 def _point_options(validation: dict) -> dict:

@@ -195,7 +195,7 @@ def _local_recipe(name, tmp_path):
     return tmp_path / "r.toml"
 
 
-@pytest.mark.parametrize("name", ["diffusion_audit", "breakup_tracking", "smeared_vs_sharp"])
+@pytest.mark.parametrize("name", ["diffusion_audit", "breakup_tracking", "smeared_vs_sharp", "miscibility"])
 def test_every_shipped_recipe_runs_end_to_end(name, tmp_path):
     """Each shipped recipe runs from the command line on the shipped samples (the quickstart and the
     channel recipe are run with their own checks in tests/test_quickstart.py and below)."""

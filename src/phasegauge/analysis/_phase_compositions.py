@@ -21,7 +21,7 @@ from ..model._statistics import weighted_quantile
 from ..model.mixture_models import DoubleWellModel
 from ._binodal import _stability, binodal, spinodal
 
-__all__ = ["bulk_compositions", "mixture_state", "solute_distribution", "equilibrium_gap", "gibbs_thomson_shift",
+__all__ = ["interface_distance", "bulk_compositions", "mixture_state", "solute_distribution", "equilibrium_gap", "gibbs_thomson_shift",
            "MIXTURE_STATES"]
 
 MIXTURE_STATES = ("stable", "metastable", "unstable")
@@ -36,6 +36,39 @@ def _cell_arrays(mesh, composition, distance):
         raise OptionError(f"composition and distance need one value per cell ({n}), found {values.shape} and "
                           f"{dist.shape}", fix="pass cell values")
     return values, dist, weights
+
+
+def interface_distance(mesh, c_cell, contour, *, level=0.5, reach=np.inf):
+    """Signed distance of every cell centroid to the interface contour, positive where c > level.
+
+    Cells farther than ``reach`` get ``+-2 reach`` (by their side; +-inf without a contour),
+    which is all the bulk selection of :func:`bulk_compositions` needs and spares the search.
+
+    Parameters
+    ----------
+    mesh : Mesh
+    c_cell : ndarray of shape (n_cells,), dimensionless
+        The indicator on the cells (its side of ``level`` gives the sign).
+    contour : Contour
+        The interface at ``level`` (from :func:`phasegauge.analysis.interface.find_interface`).
+    level : float
+    reach : float, in mesh length units
+
+    Returns
+    -------
+    ndarray of shape (n_cells,), in mesh length units
+    """
+    from ._signed_distance import _ContourGeometry, _signed_distance
+
+    c = np.asarray(c_cell, dtype=float)
+    side = np.where(c > level, np.inf, -np.inf)
+    if contour is None or contour.n_elements == 0:
+        return side
+    dist = _signed_distance(np.asarray(mesh.cell_centroids, dtype=float), c, _ContourGeometry(contour),
+                            contour.plane_axes, level, bound=float(reach))
+    far = ~np.isfinite(dist)
+    dist[far] = np.sign(side[far]) * 2.0 * float(reach)
+    return dist
 
 
 def _bulk_masks(dist, width, multiple):

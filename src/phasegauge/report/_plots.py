@@ -59,6 +59,26 @@ def measure_figures(result, snapshots: dict | None = None) -> list:
                         _plots_mixing.plot_mixing_profile(by_step, weighting=weighting,
                                                           target=result.options.mixing_target)))
     figures += _probe_figures(result)
+    figures += _mixture_figures(result)
+    return figures
+
+
+def _mixture_figures(result) -> list:
+    """Bulk compositions over the phase diagram, the gap to the binodal and the solute, where the run has them."""
+    from . import _plots_mixture
+
+    steps, diagram = result.steps, getattr(result, "phase_diagram", None)
+    figures = []
+    if diagram is None or "mean_composition" not in steps:
+        return figures
+    figures.append(("phase_compositions", "Measured bulk compositions over the phase diagram, step by step",
+                    _plots_mixture.plot_compositions_on_diagram(steps, diagram)))
+    if _has(steps, "equilibrium_gap"):
+        figures.append(("equilibrium_gap", "Gap between the bulk compositions and the binodal over time",
+                        _plots_mixture.plot_equilibrium_gap(steps, tolerance=result.options.equilibrium_tolerance)))
+    if _has(steps, "extraction_progress"):
+        figures.append(("solute_distribution", "Solute in each phase, partition coefficient and extraction progress",
+                        _plots_mixture.plot_solute(steps)))
     return figures
 
 

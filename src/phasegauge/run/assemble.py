@@ -35,7 +35,9 @@ class Finding:
     kind : str
         ``interface_widening``, ``phase_volume_drift``, ``open_boundary``,
         ``indicator_overshoot``, ``interface_under_resolved``,
-        ``droplets_under_resolved``, ``steps_skipped``, or ``warning`` (a
+        ``droplets_under_resolved``, ``steps_skipped``, the mixture findings
+        (``separated_one_phase``, ``mixed_inside_spinodal``, ``binodal_gap``,
+        ``binodal_gibbs_thomson``, ``binodal_reached``; see ``run/_mixture.py``), or ``warning`` (a
         warning of the steps or the series, repeats collapsed).
     severity : {'warning', 'note'}
         ``warning``: the numbers need a closer look; ``note``: how to read them.
@@ -277,7 +279,9 @@ def assemble(series, results: list, options, *, notes=(), feed: TrackingFeed | N
         cells = steps["interface_cells_across"].to_numpy() if "interface_cells_across" in steps else None
         audit = diffusion_audit(steps["time"].to_numpy(), steps["interface_variance"].to_numpy(),
                                 cells_across=cells, physical_diffusivity=options.diffusivity)
-    found = findings(steps, droplets, audit, options, skipped) + [
+    from ._mixture import mixture_findings
+
+    found = findings(steps, droplets, audit, options, skipped) + mixture_findings(steps, options) + [
         Finding("warning", "warning", text, {"category": category.__name__})
         for category, text in summary if not issubclass(category, SkippedStepWarning)]
     mesh = None
@@ -285,10 +289,13 @@ def assemble(series, results: list, options, *, notes=(), feed: TrackingFeed | N
         last = done[-1]
         mesh = (mesh_pool.find(last.mesh_signature) if mesh_pool is not None else None) or last.outline
     probes, lines, validation, validation_summary = _sample_tables(done, options)
+    from ._mixture import mixture_report_arrays
+
     return MeasureResult(steps=steps, droplets=droplets, events=events, profiles=profiles, audit=audit,
                          flags=[f.text for f in found], skipped=skipped, options=options, results=results,
                          mesh=mesh, warnings=[text for _, text in summary], findings=found, probes=probes,
-                         lines=lines, validation=validation, validation_summary=validation_summary)
+                         lines=lines, validation=validation, validation_summary=validation_summary,
+                         phase_diagram=mixture_report_arrays(steps, options))
 
 
 def _sample_tables(done, options):

@@ -83,6 +83,7 @@ class MeasureResult:
     lines: object = None  # DataFrame of lines.csv, or None without lines
     validation: object = None  # DataFrame of validation.csv, or None without measured values
     validation_summary: object = None  # per time and overall figures of validation.csv's comparison
+    phase_diagram: object = None  # binodal and spinodal arrays around the run's temperatures (a run with a model)
 
 
 def measure(path, field: str | None = None, *, options: MeasureOptions | None = None, out=None,

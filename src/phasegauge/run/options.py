@@ -88,6 +88,24 @@ class MeasureOptions:
     measured : tuple of (x, y, z, value, time, uncertainty)
         Measured values the run is checked against (``validation.csv``); time and
         uncertainty may be NaN (see :func:`phasegauge.io.read_measured_file`).
+    model : mixture model, str or None
+        Thermodynamic model of a partially miscible mixture (or its TOML file, read at
+        once): the field is the mole fraction of its component, mapped through the range.
+    temperature : float or None
+        Temperature of the run, in K (or ``temperature_field``).
+    temperature_field : str or None
+        Field holding the temperature (each step uses its volume-weighted median).
+    solute : str or None
+        Field of a solute's mole fraction distributed between the two phases.
+    solute_receiving : {'rich', 'lean'}
+        The phase the solute moves into (extraction progress, partition coefficient).
+    bulk_widths : float
+        Cells farther than this many measured interface widths (5-95 %) from the contour are the
+        bulk (1 width is about 4 Cahn-Hilliard eps, where the tanh tail is 0.35 %).
+    equilibrium_tolerance : float
+        Mole-fraction gap to the binodal below which a run counts as at equilibrium.
+    capillary_length : float or None
+        ``sigma v_m / (R T)`` in mesh length units, for the Gibbs-Thomson shift of drops.
     """
 
     field: str
@@ -116,6 +134,15 @@ class MeasureOptions:
     probes: tuple = ()
     lines: tuple = ()
     measured: tuple = ()
+
+    model: object = None
+    temperature: float | None = None
+    temperature_field: str | None = None
+    solute: str | None = None
+    solute_receiving: str = "rich"
+    bulk_widths: float = 1.0
+    equilibrium_tolerance: float = 0.01
+    capillary_length: float | None = None
 
     def __post_init__(self):
         set_ = object.__setattr__
@@ -177,6 +204,10 @@ class MeasureOptions:
                 raise OptionError(f"box must be (lo, hi) pairs per axis, found {self.box}",
                                   fix="for example ((0, 1), (0, 0.5), (-1, 1))")
             set_(self, "box", box)
+        from ._mixture import normalize_mixture
+
+        for name, value in normalize_mixture(self).items():
+            set_(self, name, value)
 
     def key(self) -> str:
         """Digest of every option that changes the numbers."""

@@ -224,6 +224,10 @@ def analyse_step(step, options, *, contour_dir: str | None = None, reported_mesh
             profile.insert(0, "time", step.time)
             profile.insert(0, "step", step.index)
             result.profile = profile
+    if options.model is not None:  # a partially miscible mixture: bulk compositions against the model
+        from ._mixture import mixture_step
+
+        m.update(mixture_step(step, mesh, ind, contour, m, options, droplets=result.droplets))
     m["nonfinite_values"] = int(ind.nonfinite)
     result.metrics = m
     result.contour = contour

@@ -19,6 +19,10 @@ Series (see ``sample_fields/README.md``):
 ``droplets_3d``
     Two droplets pushed together by a straining flow and merging (advective
     Cahn-Hilliard); ``phi`` and ``velocity`` on the points of hexahedra; XDMF.
+``solvent_quench``
+    An invented solvent pair (NRTL) cooled into two liquids and reheated until it
+    mixes (Cahn-Hilliard with the NRTL free energy); ``x``, a solute ``s`` and
+    ``T`` on the cells of quads; XDMF.
 
 Not among the shipped series, for tests of reading solver output:
 :func:`write_vof_tank` writes a sloshing tank laid out as a finite-volume
@@ -36,6 +40,7 @@ from ._channel import CHANNEL, channel_concentration, poiseuille_velocity, write
 from ._droplets3d import DROPLETS_3D, droplets_3d_fields, straining_flow, write_droplets_3d
 from ._filament import FILAMENT, filament_breakup_fields, filament_initial, write_filament_breakup
 from ._finite_volume import advect
+from ._miscibility import SOLVENT_QUENCH, solvent_quench_fields, write_solvent_quench
 from ._vortex import VORTEX, circle_fraction, vortex_fields, vortex_velocity, write_vortex
 from ._vof_tank import TANK, TankCase, tank_fields, tank_mesh, tank_velocity, write_vof_tank
 
@@ -46,11 +51,13 @@ __all__ = [
     "circle_fraction", "channel_concentration", "poiseuille_velocity", "droplets_3d_fields",
     "straining_flow", "cahn_hilliard", "cahn_hilliard_energy", "spectral_grid", "advect",
     "FILAMENT", "VORTEX", "CHANNEL", "DROPLETS_3D",
+    "write_solvent_quench", "solvent_quench_fields", "SOLVENT_QUENCH",
     "write_vof_tank", "tank_fields", "tank_mesh", "tank_velocity", "TankCase", "TANK",
 ]
 
 #: the series :func:`write_samples` writes, in order
-SAMPLE_NAMES = ("filament_breakup", "vortex_upwind", "vortex_sharp", "channel_mixing", "droplets_3d")
+SAMPLE_NAMES = ("filament_breakup", "vortex_upwind", "vortex_sharp", "channel_mixing", "droplets_3d",
+                "solvent_quench")
 
 _WRITERS = {
     "filament_breakup": write_filament_breakup,
@@ -58,6 +65,7 @@ _WRITERS = {
     "vortex_sharp": lambda d: write_vortex(d, "vortex_sharp"),
     "channel_mixing": write_channel_mixing,
     "droplets_3d": write_droplets_3d,
+    "solvent_quench": write_solvent_quench,
 }
 
 

@@ -77,7 +77,7 @@ def cahn_hilliard_energy(phi, lengths, *, epsilon: float) -> float:
 
 
 def cahn_hilliard(phi0, lengths, *, epsilon: float, mobility: float, dt: float, save_steps,
-                  velocity=None, stabilization: float = 2.0, energies: bool = False):
+                  velocity=None, stabilization: float = 2.0, energies: bool = False, bulk_force=None):
     """Integrate the (advective) Cahn-Hilliard equation on a periodic box.
 
     Parameters
@@ -99,7 +99,11 @@ def cahn_hilliard(phi0, lengths, *, epsilon: float, mobility: float, dt: float, 
     stabilization : float
         S of the stabilised scheme; S >= 1 makes it energy stable for |phi| <= 1.
     energies : bool
-        Also return the free energy after every step.
+        Also return the free energy after every step (of the double well only).
+    bulk_force : callable, optional
+        ``f'(phi)`` of another bulk free energy in place of the double well's ``phi^3 - phi``
+        (same scaling: the chemical potential is ``-eps lap phi + f'(phi) / eps``); S should be
+        at least half the largest ``f''`` the run meets.
 
     Returns
     -------
@@ -114,6 +118,9 @@ def cahn_hilliard(phi0, lengths, *, epsilon: float, mobility: float, dt: float, 
     Shen, J., Yang, X. (2010). Numerical approximations of Allen-Cahn and
     Cahn-Hilliard equations. Discrete Contin. Dyn. Syst. A 28, 1669-1691.
     """
+    if energies and bulk_force is not None:
+        raise ValueError("energies are those of the double well: leave bulk_force out")
+    force_of = (lambda p: p**3 - p) if bulk_force is None else bulk_force
     phi = np.array(phi0, dtype=float)
     save_steps = [int(s) for s in save_steps]
     if any(b <= a for a, b in zip(save_steps, save_steps[1:])) or save_steps[0] < 0:
@@ -127,7 +134,7 @@ def cahn_hilliard(phi0, lengths, *, epsilon: float, mobility: float, dt: float, 
     energy = [cahn_hilliard_energy(phi, lengths, epsilon=epsilon)] if energies else None
     targets = set(save_steps)
     for step in range(1, save_steps[-1] + 1):
-        force = np.fft.rfftn(phi**3 - phi)
+        force = np.fft.rfftn(force_of(phi))
         rhs = ph * explicit - dt * mobility * k2 * force / epsilon
         if velocity is not None:
             rhs = rhs - dt * sum(1j * kk * np.fft.rfftn(u * phi) for kk, u in zip(k, velocity))

@@ -1,0 +1,306 @@
+"""Partially miscible mixtures in a measure run: the options, the per-step values, the findings.
+
+With a thermodynamic model (``MeasureOptions.model``) and a temperature, every step gets the
+bulk composition of each phase (cells farther than ``bulk_widths`` measured interface widths
+from the contour, median per phase), the binodal at the step's temperature, the gap between
+them, the state the model predicts for the mean composition, the drop radius with the
+Gibbs-Thomson shift it implies, and with a solute field how the solute is distributed.
+The analysis is :mod:`phasegauge.analysis.thermo`; this module only wires it into the run.
+"""
+
+from __future__ import annotations
+
+import math
+import os
+
+import numpy as np
+
+from ..errors import OptionError
+
+__all__ = ["normalize_mixture", "mixture_step", "mixture_findings", "mixture_report_arrays",
+           "MIXTURE_COLUMNS", "SOLUTE_COLUMNS"]
+
+#: steps.csv columns of a run with a model
+MIXTURE_COLUMNS = ("temperature", "mean_composition", "bulk_composition_lean", "bulk_composition_rich",
+                   "bulk_spread_lean", "bulk_spread_rich", "binodal_lean", "binodal_rich", "equilibrium_gap",
+                   "mixture_state", "separated", "drop_radius", "gibbs_thomson_shift")
+#: steps.csv columns of a run with a solute
+SOLUTE_COLUMNS = ("solute_lean", "solute_rich", "partition_coefficient", "extraction_progress",
+                  "lever_rule_residual")
+
+
+def _positive(value, name, fix):
+    try:
+        value = float(value)
+    except (TypeError, ValueError):
+        raise OptionError(f"{name} must be a number, found {value!r}", fix=fix) from None
+    if not (math.isfinite(value) and value > 0):
+        raise OptionError(f"{name} must be a number > 0, found {value!r}", fix=fix)
+    return value
+
+
+def normalize_mixture(options) -> dict:
+    """The mixture options of ``options`` checked and normalised (a dict of the values to set).
+
+    A model given as a path is read here (:func:`phasegauge.io.read_mixture_model`), so the
+    options' key digests its parameters, not its file name.
+    """
+    out = {}
+    model = options.model
+    given = [name for name in ("temperature", "temperature_field", "solute", "capillary_length")
+             if getattr(options, name) is not None]
+    if model is None:
+        if given:
+            raise OptionError(f"{given[0].replace('_', ' ')} is given without a mixture model",
+                              fix="give the model file with --model MODEL.toml")
+        return out
+    if isinstance(model, (str, os.PathLike)):
+        from ..io import read_mixture_model
+
+        model = read_mixture_model(model)
+    if not hasattr(model, "mixing_gibbs"):
+        raise OptionError(f"model must be a mixture model or a model file, found {type(model).__name__}",
+                          fix="give --model MODEL.toml (see sample_fields/solvent_pair.toml)")
+    out["model"] = model
+    if (options.temperature is None) == (options.temperature_field is None):
+        raise OptionError("a mixture model needs one temperature: a value or a field, not "
+                          + ("both" if options.temperature is not None else "neither"),
+                          fix="give --temperature 298.15 or --temperature-field NAME")
+    if options.temperature is not None:
+        out["temperature"] = _positive(options.temperature, "temperature", "give it in K, for example 298.15")
+    for name in ("temperature_field", "solute"):
+        value = getattr(options, name)
+        if value is not None and (not isinstance(value, str) or not value):
+            raise OptionError(f"{name.replace('_', ' ')} must be a field name, found {value!r}",
+                              fix="see the fields with 'phasegauge inspect'")
+    out["bulk_widths"] = _positive(options.bulk_widths, "bulk widths", "1 width (5-95 %) from the contour is the default")
+    out["equilibrium_tolerance"] = _positive(options.equilibrium_tolerance, "equilibrium tolerance",
+                                             "for example 0.01 (mole fraction)")
+    if options.capillary_length is not None:
+        out["capillary_length"] = _positive(options.capillary_length, "capillary length",
+                                            "sigma v_m / (R T) in mesh length units")
+    if options.solute_receiving not in ("rich", "lean"):
+        raise OptionError(f"solute receiving phase must be 'rich' or 'lean', found {options.solute_receiving!r}",
+                          fix="name the phase the solute moves into")
+    if "interface" not in options.analyses:
+        raise OptionError("bulk compositions need the interface analysis (the contour and its width)",
+                          fix="keep 'interface' among the analyses")
+    return out
+
+
+def _cell_field(step, mesh, name, what):
+    from ..model.fields import named_field
+
+    values, location = named_field(step.fields, name, where=step.info.where, role=what,
+                                   fix=f"name the {what} as 'phasegauge inspect' lists it", order=("cell", "point"))
+    values = np.asarray(values, dtype=float)
+    if values.ndim != 1:
+        from ..errors import FieldShapeError
+
+        raise FieldShapeError(f"the {what} '{name}' has {values.shape[1]} components; one is needed",
+                              where=step.info.where, fix=f"give a scalar {what}")
+    return values if location == "cell" else mesh.point_to_cell(values)
+
+
+def _step_temperature(step, mesh, options) -> float:
+    if options.temperature is not None:
+        return float(options.temperature)
+    values = _cell_field(step, mesh, options.temperature_field, "temperature field")
+    from ..model._statistics import weighted_quantile
+
+    finite = np.isfinite(values)
+    return float(weighted_quantile(values[finite], mesh.cell_measures[finite], 0.5)) if finite.any() else math.nan
+
+
+def mixture_step(step, mesh, ind, contour, metrics: dict, options, droplets=None) -> dict:
+    """The mixture columns of one step (see :data:`MIXTURE_COLUMNS`, :data:`SOLUTE_COLUMNS`).
+
+    The composition is the field mapped through the range (``ind.cell``, or ``1 - ind.cell``
+    when the measured phase is the lower one): the mole fraction of the model's component.
+    """
+    from ..analysis import thermo
+
+    model = options.model
+    x = ind.cell if options.phase == "upper" else 1.0 - ind.cell
+    weights = mesh.cell_measures
+    finite = np.isfinite(x)
+    t = _step_temperature(step, mesh, options)
+    out = {"temperature": t,
+           "mean_composition": float(weights[finite] @ x[finite] / weights[finite].sum())}
+    eq = thermo.equilibrium_at(model, t) if np.isfinite(t) else None
+    out["binodal_lean"] = eq.binodal_lean if eq is not None else math.nan
+    out["binodal_rich"] = eq.binodal_rich if eq is not None else math.nan
+    out["mixture_state"] = str(thermo.mixture_state(model, t, out["mean_composition"])) if eq is not None else ""
+    width = metrics.get("interface_width", math.nan)
+    if not (np.isfinite(width) and width > 0):
+        width = metrics.get("width_second_moment", math.nan)
+    bulk = {"bulk_composition_lean": math.nan, "bulk_composition_rich": math.nan,
+            "bulk_spread_lean": math.nan, "bulk_spread_rich": math.nan}
+    distance = None
+    if contour is not None and contour.n_elements and np.isfinite(width) and width > 0:
+        reach = options.bulk_widths * width
+        distance = thermo.interface_distance(mesh, ind.cell, contour, level=options.level, reach=reach)
+        found = thermo.bulk_compositions(mesh, x, distance, width=width, multiple=options.bulk_widths)
+        bulk = {k: found[k] for k in bulk}
+    out.update(bulk)
+    lean, rich = bulk["bulk_composition_lean"], bulk["bulk_composition_rich"]
+    separated = bool(np.isfinite(lean) and np.isfinite(rich) and rich - lean > options.equilibrium_tolerance)
+    out["separated"] = separated
+    out["equilibrium_gap"] = (thermo.equilibrium_gap(lean, rich, out["binodal_lean"], out["binodal_rich"])
+                              if separated else math.nan)
+    radius = out["drop_radius"] = _drop_radius(droplets, mesh.dimension)
+    shift = math.nan
+    if options.capillary_length is not None and np.isfinite(radius) and radius > 0 and eq is not None:
+        drop = "rich" if options.phase == "upper" else "lean"
+        shifts = thermo.gibbs_thomson_shift(model, t, radius, capillary_length=options.capillary_length,
+                                            dimension=mesh.dimension, drop=drop)
+        shift = float(np.nanmax(np.abs(shifts))) if np.isfinite(shifts).any() else math.nan
+    out["gibbs_thomson_shift"] = shift
+    if options.solute is not None:
+        out.update(_solute_step(step, mesh, x, distance, width, options))
+    return out
+
+
+def _drop_radius(droplets, dimension) -> float:
+    """Median equivalent radius of the drops from the volume with c above the level (drops that wrap
+    around a periodic box are left out); NaN without drops."""
+    if droplets is None or not len(droplets) or "threshold_volume" not in droplets:
+        return math.nan
+    volume = np.asarray(droplets["threshold_volume"], dtype=float)
+    if "spanning" in droplets:
+        volume = volume[~np.asarray(droplets["spanning"], dtype=bool)]
+    volume = volume[volume > 0]
+    if not volume.size:
+        return math.nan
+    radius = np.sqrt(volume / np.pi) if dimension == 2 else np.cbrt(3 * volume / (4 * np.pi))
+    return float(np.median(radius))
+
+
+def _solute_step(step, mesh, x, distance, width, options) -> dict:
+    from ..analysis import thermo
+
+    out = dict.fromkeys(SOLUTE_COLUMNS, math.nan)
+    solute = _cell_field(step, mesh, options.solute, "solute field")
+    if distance is None:
+        return out
+    rich_side = "positive" if options.phase == "upper" else "negative"
+    lean_side = "negative" if rich_side == "positive" else "positive"
+    receiving = rich_side if options.solute_receiving == "rich" else lean_side
+    found = thermo.solute_distribution(mesh, solute, distance, width=width, multiple=options.bulk_widths,
+                                       receiving=receiving, composition=x)
+    take, other = (("solute_rich", "solute_lean") if options.solute_receiving == "rich"
+                   else ("solute_lean", "solute_rich"))
+    out[take], out[other] = found["solute_receiving"], found["solute_other"]
+    for key in ("partition_coefficient", "extraction_progress", "lever_rule_residual"):
+        out[key] = found.get(key, math.nan)
+    return out
+
+
+def _times(steps, mask) -> list:
+    return [float(t) for t in steps["time"].to_numpy()[np.asarray(mask, dtype=bool)]]
+
+
+def mixture_findings(steps, options) -> list:
+    """The findings of the mixture columns, as :class:`~phasegauge.run.assemble.Finding` records.
+
+    - separated where the model predicts one stable phase (a warning while the last step is
+      still separated, a note when it mixed later);
+    - still mixed inside the spinodal (likewise);
+    - bulk compositions off the binodal by more than ``equilibrium_tolerance`` at the last
+      separated step (a note instead when the gap lies within the Gibbs-Thomson shift expected
+      for the measured drop radius), and the time the gap fell below the tolerance for good.
+    """
+    from .assemble import Finding
+
+    if options.model is None or "mixture_state" not in steps or not len(steps):
+        return []
+    found = []
+    tol = float(options.equilibrium_tolerance)
+    separated = steps["separated"].to_numpy(dtype=bool)
+    one_phase = ~np.isfinite(steps["binodal_lean"].to_numpy(dtype=float))
+    last = len(steps) - 1
+    wrong = separated & one_phase
+    if wrong.any():
+        times = _times(steps, wrong)
+        still = bool(wrong[last])
+        text = (f"separated although the model predicts one stable phase at {_temperature_text(steps, wrong)} "
+                f"({int(wrong.sum())} step(s), t = {times[0]:g} to {times[-1]:g})"
+                + ("" if still else "; mixed later"))
+        found.append(Finding("separated_one_phase", "warning" if still else "note", text,
+                             {"steps": int(wrong.sum()), "first_time": times[0], "last_time": times[-1],
+                              "at_last_step": still}))
+    unstable = (steps["mixture_state"].astype(str).to_numpy() == "unstable") & ~separated
+    if unstable.any():
+        times = _times(steps, unstable)
+        still = bool(unstable[last])
+        text = (f"still mixed inside the spinodal ({int(unstable.sum())} step(s), t = {times[0]:g} to {times[-1]:g})"
+                + ("" if still else "; separated later"))
+        found.append(Finding("mixed_inside_spinodal", "warning" if still else "note", text,
+                             {"steps": int(unstable.sum()), "first_time": times[0], "last_time": times[-1],
+                              "at_last_step": still}))
+    gap = steps["equilibrium_gap"].to_numpy(dtype=float)
+    measured = np.flatnonzero(np.isfinite(gap))
+    if measured.size:
+        end = measured[-1]
+        final_gap = float(gap[end])
+        shift = float(steps["gibbs_thomson_shift"].iat[end]) if "gibbs_thomson_shift" in steps else math.nan
+        radius = float(steps["drop_radius"].iat[end]) if "drop_radius" in steps else math.nan
+        figures = {"equilibrium_gap": final_gap, "tolerance": tol, "time": float(steps["time"].iat[end]),
+                   "drop_radius": _finite(radius), "gibbs_thomson_shift": _finite(shift)}
+        below = gap[measured] <= tol
+        if below[-1]:
+            first = measured[np.flatnonzero(~below)[-1] + 1] if (~below).any() else measured[0]
+            reached = float(steps["time"].iat[first])
+            figures["equilibrium_time"] = reached
+            found.append(Finding("binodal_reached", "note",
+                                 f"bulk compositions on the binodal within {tol:g} from t = {reached:g} "
+                                 f"(gap {final_gap:.3g} at t = {figures['time']:g})", figures))
+        elif np.isfinite(shift) and final_gap <= tol + shift:
+            found.append(Finding("binodal_gibbs_thomson", "note",
+                                 f"bulk compositions off the planar binodal by {final_gap:.3g}, within the "
+                                 f"Gibbs-Thomson shift {shift:.3g} expected for drops of radius {radius:.3g} "
+                                 f"(tolerance {tol:g})", figures))
+        else:
+            text = (f"bulk compositions off the binodal by {final_gap:.3g} at t = {figures['time']:g}, the last "
+                    f"separated step (tolerance {tol:g})")
+            if np.isfinite(radius):
+                text += f"; drop radius {radius:.3g}"
+                if np.isfinite(shift):
+                    text += f", Gibbs-Thomson shift {shift:.3g}"
+            found.append(Finding("binodal_gap", "warning", text, figures))
+    return found
+
+
+def _finite(value):
+    return value if np.isfinite(value) else None
+
+
+def _temperature_text(steps, mask) -> str:
+    t = steps["temperature"].to_numpy(dtype=float)[mask]
+    lo, hi = float(np.nanmin(t)), float(np.nanmax(t))
+    return f"{lo:.6g} K" if hi - lo < 1e-9 * max(abs(hi), 1.0) else f"{lo:.6g} to {hi:.6g} K"
+
+
+def mixture_report_arrays(steps, options, *, count: int = 120) -> dict | None:
+    """The phase diagram around the run's temperatures, for the report to draw the steps over.
+
+    Returns
+    -------
+    dict or None
+        ``temperature, binodal_lean, binodal_rich, spinodal_lean, spinodal_rich`` (arrays) and
+        ``component`` (str); None without a model or a finite temperature.
+    """
+    if options.model is None or "temperature" not in steps:
+        return None
+    t = steps["temperature"].to_numpy(dtype=float)
+    t = t[np.isfinite(t)]
+    if not t.size:
+        return None
+    from ..analysis.thermo import phase_diagram
+
+    lo, hi = 0.85 * float(t.min()), 1.15 * float(t.max())
+    table = phase_diagram(options.model, np.linspace(lo, hi, count))
+    arrays = {name: np.asarray(table[name], dtype=float) for name in
+              ("temperature", "binodal_lean", "binodal_rich", "spinodal_lean", "spinodal_rich")}
+    arrays["component"] = getattr(options.model, "component", "") or "the component"
+    return arrays

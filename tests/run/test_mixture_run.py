@@ -1,0 +1,206 @@
+"""Measured phase compositions in a measure run, against analytic binodals on fields built with known values."""
+
+import os
+
+import numpy as np
+import pandas as pd
+import pytest
+from click.testing import CliRunner
+
+from phasegauge import measure
+from phasegauge.analysis.thermo import RegularSolutionModel
+from phasegauge.cli import main
+from phasegauge.errors import OptionError
+from phasegauge.meshgen import grid_mesh, to_meshio
+from phasegauge.run.measure import MeasureOptions
+
+# Regular solution A = 3: binodal ln(x/(1-x)) = A (2x - 1) -> x = 0.070720 (analytic, REFERENCES.md);
+# spinodal x (1 - x) = 1 / (2A) -> 0.211325
+LEAN, RICH = 0.070720, 0.929280
+EPS = 0.012
+
+
+def _slab_series(folder, values, *, n=80, solute=None, temperature=None, order_parameter=False):
+    """A rich slab (|x - 1/2| < 1/4) in a lean matrix, tanh interfaces, one step per (lean, rich) pair.
+
+    Bulk values are the truth; written as mole fraction (or as an order parameter in [-1, 1]).
+    """
+    mesh = grid_mesh((n, 8), bounds=[(0.0, 1.0), (0.0, 0.1)], kind="quad")
+    x = mesh.cell_centroids[:, 0]
+    profile = 0.5 * (1 + np.tanh((0.25 - np.abs(x - 0.5)) / (2 * EPS)))   # logistic, Cahn & Hilliard 1958
+    lines = []
+    for k, (lean, rich) in enumerate(values):
+        comp = lean + (rich - lean) * profile
+        data = {"x": 2 * comp - 1 if order_parameter else comp}
+        if solute is not None:
+            data["s"] = solute[k][0] + (solute[k][1] - solute[k][0]) * profile
+        if temperature is not None:
+            data["T"] = np.full(mesh.n_cells, temperature[k])
+        name = f"slab_{k}.vtu"
+        to_meshio(mesh, cell_data=data).write(os.path.join(folder, name))
+        lines.append(f"{float(k)},{name}")
+    listing = os.path.join(folder, "run.steps")
+    with open(listing, "w") as f:
+        f.write("\n".join(lines) + "\n")
+    return listing
+
+
+def _model_file(tmp_path, chi=3.0):
+    path = tmp_path / "regular.toml"
+    path.write_text(f'[model]\nkind = "regular"\ncomponent = "A"\nchi = {chi}\n')
+    return str(path)
+
+
+def test_bulk_compositions_of_a_tanh_slab_within_0_002_of_the_truth(tmp_path):
+    truth = [(0.20, 0.80), (0.10, 0.90), (LEAN, RICH)]
+    path = _slab_series(tmp_path, truth)
+    res = measure(path, "x", model=RegularSolutionModel(A_a=3.0), temperature=300.0,
+                  analyses=("interface", "conservation"))
+    steps = res.steps
+    for k, (lean, rich) in enumerate(truth):   # the issue's tolerance: 0.002 of the built values
+        assert steps["bulk_composition_lean"].iat[k] == pytest.approx(lean, abs=2e-3)
+        assert steps["bulk_composition_rich"].iat[k] == pytest.approx(rich, abs=2e-3)
+    # the regular-solution analytic binodal at A = 3
+    assert steps["binodal_lean"].iat[0] == pytest.approx(LEAN, abs=1e-6)
+    assert steps["binodal_rich"].iat[0] == pytest.approx(RICH, abs=1e-6)
+    assert steps["equilibrium_gap"].iat[0] == pytest.approx(0.20 - LEAN, abs=2e-3)
+    assert steps["equilibrium_gap"].iat[-1] < 2e-3
+    assert steps["separated"].all()
+    kinds = [f.kind for f in res.findings]
+    assert "binodal_reached" in kinds
+    reached = next(f for f in res.findings if f.kind == "binodal_reached")
+    assert reached.figures["equilibrium_time"] == 2.0
+
+
+def test_order_parameter_maps_through_the_range(tmp_path):
+    path = _slab_series(tmp_path, [(LEAN, RICH)], order_parameter=True)
+    res = measure(path, "x", value_range=(-1, 1), model=RegularSolutionModel(A_a=3.0), temperature=300.0,
+                  analyses=("interface",))
+    assert res.steps["bulk_composition_lean"].iat[0] == pytest.approx(LEAN, abs=2e-3)
+    assert res.steps["bulk_composition_rich"].iat[0] == pytest.approx(RICH, abs=2e-3)
+
+
+def test_mixture_state_on_both_sides_of_the_binodal(tmp_path):
+    # uniform fields: mean 0.06 (outside the binodal 0.070720: stable), 0.10 (between binodal and spinodal
+    # 0.211325: metastable), 0.5 (inside the spinodal: unstable, and still mixed)
+    mesh = grid_mesh((10, 10), kind="quad")
+    lines = []
+    for k, value in enumerate((0.06, 0.10, 0.5)):
+        to_meshio(mesh, cell_data={"x": np.full(mesh.n_cells, value)}).write(str(tmp_path / f"u_{k}.vtu"))
+        lines.append(f"{float(k)},u_{k}.vtu")
+    (tmp_path / "run.steps").write_text("\n".join(lines) + "\n")
+    res = measure(str(tmp_path / "run.steps"), "x", model=RegularSolutionModel(A_a=3.0), temperature=300.0,
+                  analyses=("interface",))
+    assert list(res.steps["mixture_state"]) == ["stable", "metastable", "unstable"]
+    assert not res.steps["separated"].any()
+    finding = next(f for f in res.findings if f.kind == "mixed_inside_spinodal")
+    assert finding.severity == "warning" and "still mixed inside the spinodal" in finding.text
+
+
+def test_separated_where_the_model_predicts_one_phase(tmp_path):
+    # A = 1.5 < 2 (the analytic critical value): one stable phase at every composition
+    path = _slab_series(tmp_path, [(0.1, 0.9), (0.12, 0.88)])
+    res = measure(path, "x", model=RegularSolutionModel(A_a=1.5), temperature=300.0, analyses=("interface",))
+    assert np.isnan(res.steps["binodal_lean"]).all()
+    finding = next(f for f in res.findings if f.kind == "separated_one_phase")
+    assert "separated although the model predicts one stable phase" in finding.text
+    assert finding.severity == "warning"
+
+
+def test_gap_within_the_gibbs_thomson_shift_is_a_note_not_a_warning(tmp_path):
+    # a rich drop of radius 0.2 whose bulk values sit 0.02 off the planar binodal (A = 3)
+    mesh = grid_mesh((100, 100), kind="quad")
+    c = mesh.cell_centroids[:, :2] - 0.5
+    r = np.hypot(c[:, 0], c[:, 1])
+    profile = 0.5 * (1 + np.tanh((0.2 - r) / (2 * EPS)))
+    comp = (LEAN + 0.02) + (RICH + 0.02 - LEAN - 0.02) * profile
+    to_meshio(mesh, cell_data={"x": comp}).write(str(tmp_path / "drop.vtu"))
+    common = dict(model=RegularSolutionModel(A_a=3.0), temperature=300.0, analyses=("interface", "droplets"))
+    flagged = measure(str(tmp_path / "drop.vtu"), "x", **common)
+    assert "binodal_gap" in [f.kind for f in flagged.findings]
+    assert flagged.steps["drop_radius"].iat[0] == pytest.approx(0.2, rel=0.02)
+    # the leading-order shift (Porter & Easterling 1992, section 1.5) for l = 0.05 is about 0.05 here
+    excused = measure(str(tmp_path / "drop.vtu"), "x", capillary_length=0.05, **common)
+    kinds = [f.kind for f in excused.findings]
+    assert "binodal_gap" not in kinds and "binodal_gibbs_thomson" in kinds
+    assert excused.steps["gibbs_thomson_shift"].iat[0] > 0.02
+
+
+def test_solute_partition_and_extraction_progress(tmp_path):
+    # solute 0.01 in the lean matrix, 0.04 in the rich slab (K = 4 built in); the slab is half the domain
+    path = _slab_series(tmp_path, [(LEAN, RICH)], solute=[(0.01, 0.04)])
+    res = measure(path, "x", model=RegularSolutionModel(A_a=3.0), temperature=300.0, solute="s",
+                  analyses=("interface",))
+    row = res.steps.iloc[0]
+    assert row["solute_lean"] == pytest.approx(0.01, abs=1e-4)
+    assert row["solute_rich"] == pytest.approx(0.04, abs=1e-4)
+    assert row["partition_coefficient"] == pytest.approx(4.0, rel=0.01)
+    # analytic: the solute on the slab's side of the contour over the whole amount; the logistic profile
+    # misses int_0^inf (1 - 1/(1 + e^(-u/eps))) du = eps ln 2 at each of the two interfaces
+    inside = 0.5 * 0.01 + 0.03 * (0.5 - 2 * EPS * np.log(2))
+    assert row["extraction_progress"] == pytest.approx(inside / (0.01 + 0.03 * 0.5), abs=2e-3)
+    assert abs(row["lever_rule_residual"]) < 1e-3
+
+
+def test_temperature_field_and_the_command_line(tmp_path):
+    path = _slab_series(tmp_path, [(LEAN, RICH), (LEAN, RICH)], temperature=[300.0, 300.0])
+    out = tmp_path / "out"
+    res = CliRunner().invoke(main, ["measure", path, "-f", "x", "--model", _model_file(tmp_path),
+                                    "--temperature-field", "T", "-o", str(out), "--quiet"])
+    assert res.exit_code == 0, res.output
+    steps = pd.read_csv(out / "steps.csv")
+    for column in ("bulk_composition_lean", "bulk_composition_rich", "binodal_lean", "binodal_rich",
+                   "equilibrium_gap", "mixture_state"):
+        assert column in steps
+    assert steps["temperature"].iat[0] == 300.0
+    assert (out / "phase_compositions.png").exists()
+
+
+def test_mixture_options_are_checked_first(tmp_path):
+    with pytest.raises(OptionError, match="one temperature"):
+        MeasureOptions(field="x", model=RegularSolutionModel(A_a=3.0))
+    with pytest.raises(OptionError, match="without a mixture model"):
+        MeasureOptions(field="x", temperature=300.0)
+    with pytest.raises(OptionError, match="temperature must be a number > 0"):
+        MeasureOptions(field="x", model=RegularSolutionModel(A_a=3.0), temperature=-1.0)
+    with pytest.raises(OptionError, match="interface analysis"):
+        MeasureOptions(field="x", model=RegularSolutionModel(A_a=3.0), temperature=300.0, analyses=("mixing",))
+    opts = MeasureOptions(field="x", model=_model_file(tmp_path), temperature=300.0)
+    assert isinstance(opts.model, RegularSolutionModel)
+    assert opts.key() != MeasureOptions(field="x", model=_model_file(tmp_path, chi=2.5), temperature=300.0).key()
+
+
+def test_the_solvent_quench_sample_separates_cold_and_mixes_hot():
+    """The demo series against its own model: on the binodal within the tolerance after the quench,
+    one stable phase after heating (no critical point below 370 K is crossed back), mean composition
+    conserved (Cahn-Hilliard conserves the mean, Cahn & Hilliard 1958)."""
+    root = os.path.join(os.path.dirname(__file__), os.pardir, os.pardir, "sample_fields")
+    res = measure(os.path.join(root, "solvent_quench.xdmf"), "x", model=os.path.join(root, "solvent_pair.toml"),
+                  temperature_field="T", solute="s", analyses=("interface", "droplets"))
+    steps = res.steps
+    cold, hot = steps[steps["temperature"] < 300], steps[steps["temperature"] > 360]
+    assert cold["separated"].iat[-1] and cold["equilibrium_gap"].iat[-1] < 0.01
+    assert np.isnan(hot["binodal_lean"]).all() and (hot["mixture_state"] == "stable").all()
+    assert not hot["separated"].iat[-1]
+    assert np.ptp(steps["mean_composition"]) < 1e-6
+    assert cold["partition_coefficient"].iat[-1] > 2     # the solute moves into the rich liquid (K = 3 built in)
+    assert "binodal_reached" in [f.kind for f in res.findings]
+
+
+def test_miscibility_recipe_table_is_checked_before_any_work(tmp_path):
+    from phasegauge.recipes import load_recipe
+
+    base = '[input]\npath = "x.vtu"\nfield = "x"\n[output]\nfolder = "o"\n'
+    recipe = tmp_path / "r.toml"
+    recipe.write_text(base + '[miscibility]\nmodle = "m.toml"\n')
+    with pytest.raises(OptionError, match="did you mean 'model'"):
+        load_recipe(recipe)
+    recipe.write_text(base + '[miscibility]\ntemperature = 300.0\n')
+    with pytest.raises(OptionError, match=r"\[miscibility\] needs 'model'"):
+        load_recipe(recipe)
+    _model_file(tmp_path)
+    recipe.write_text(base + '[miscibility]\nmodel = "regular.toml"\n')
+    with pytest.raises(OptionError, match=r"\[miscibility\] a mixture model needs one temperature"):
+        load_recipe(recipe)
+    recipe.write_text(base + '[miscibility]\nmodel = "regular.toml"\ntemperature = 300.0\n')
+    assert load_recipe(recipe)["miscibility"]["model"] == str(tmp_path / "regular.toml")
