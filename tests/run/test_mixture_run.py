@@ -7,6 +7,7 @@ import pandas as pd
 import pytest
 from click.testing import CliRunner
 
+from conftest import write_listing
 from phasegauge import measure
 from phasegauge.analysis.thermo import RegularSolutionModel
 from phasegauge.cli import main
@@ -28,21 +29,17 @@ def _slab_series(folder, values, *, n=80, solute=None, temperature=None, order_p
     mesh = grid_mesh((n, 8), bounds=[(0.0, 1.0), (0.0, 0.1)], kind="quad")
     x = mesh.cell_centroids[:, 0]
     profile = 0.5 * (1 + np.tanh((0.25 - np.abs(x - 0.5)) / (2 * EPS)))   # logistic, Cahn & Hilliard 1958
-    lines = []
-    for k, (lean, rich) in enumerate(values):
+
+    def step(k, lean, rich):
         comp = lean + (rich - lean) * profile
         data = {"x": 2 * comp - 1 if order_parameter else comp}
         if solute is not None:
             data["s"] = solute[k][0] + (solute[k][1] - solute[k][0]) * profile
         if temperature is not None:
             data["T"] = np.full(mesh.n_cells, temperature[k])
-        name = f"slab_{k}.vtu"
-        to_meshio(mesh, cell_data=data).write(os.path.join(folder, name))
-        lines.append(f"{float(k)},{name}")
-    listing = os.path.join(folder, "run.steps")
-    with open(listing, "w") as f:
-        f.write("\n".join(lines) + "\n")
-    return listing
+        return float(k), f"slab_{k}.vtu", mesh, data
+
+    return write_listing(folder, (step(k, lean, rich) for k, (lean, rich) in enumerate(values)))
 
 
 def _model_file(tmp_path, chi=3.0):

@@ -29,6 +29,17 @@ import numpy as np
 
 from ..errors import OptionError
 
+
+def _finite_number(name: str, value, *, example: str) -> float:
+    """``value`` as a finite float, or an :class:`OptionError` naming the model key."""
+    try:
+        number = float(value)
+    except (TypeError, ValueError):
+        raise OptionError(f"{name} must be a number, found {value!r}", fix=f"write {name} = {example}") from None
+    if not np.isfinite(number):
+        raise OptionError(f"{name} must be finite, found {value!r}", fix=f"write {name} = {example}")
+    return number
+
 __all__ = ["NrtlModel", "RegularSolutionModel", "DoubleWellModel", "nrtl_ln_gamma", "MODEL_KINDS"]
 
 #: the ``kind`` names of the model file
@@ -177,14 +188,7 @@ class RegularSolutionModel(_BinaryActivityModel):
 
     def __post_init__(self):
         for name in ("A_a", "A_b"):
-            value = getattr(self, name)
-            try:
-                value = float(value)
-            except (TypeError, ValueError):
-                raise OptionError(f"{name} must be a number, found {value!r}", fix=f"write {name} = 2.5") from None
-            if not np.isfinite(value):
-                raise OptionError(f"{name} must be finite, found {value!r}", fix=f"write {name} = 2.5")
-            object.__setattr__(self, name, value)
+            object.__setattr__(self, name, _finite_number(name, getattr(self, name), example="2.5"))
 
     def interaction(self, temperature):
         """A = a + b / T (dimensionless)."""
@@ -225,14 +229,7 @@ class DoubleWellModel:
 
     def __post_init__(self):
         for name in ("lean", "rich", "height"):
-            value = getattr(self, name)
-            try:
-                value = float(value)
-            except (TypeError, ValueError):
-                raise OptionError(f"{name} must be a number, found {value!r}", fix=f"write {name} = 0.1") from None
-            if not np.isfinite(value):
-                raise OptionError(f"{name} must be finite, found {value!r}", fix=f"write {name} = 0.1")
-            object.__setattr__(self, name, value)
+            object.__setattr__(self, name, _finite_number(name, getattr(self, name), example="0.1"))
         if not self.lean < self.rich:
             raise OptionError(f"the double well needs lean < rich, found lean {self.lean:g}, rich {self.rich:g}",
                               fix="give the lower bulk value as lean")

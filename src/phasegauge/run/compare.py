@@ -119,15 +119,20 @@ def _compare_runs(first, second, *, out, overwrite, level, time_tolerance, spaci
             return (Series(first.path, sort_by_time=first.sort_by_time),
                     Series(second.path, sort_by_time=second.sort_by_time))
 
+    both = open_both()  # discovered once for the output check and the sampling plan
     if out is not None:
         from ..report._files import prepare_output_folder
         from .measure import check_output_place
 
-        for series in open_both():
-            with series:
+        try:
+            for series in both:
                 check_output_place(series, out)
+        except BaseException:
+            for series in both:
+                series.close()
+            raise
         prepare_output_folder(out, overwrite=overwrite, run_key="")
-    plan = plan_sampling(*open_both(), spacing=spacing, time_tolerance=time_tolerance)  # (closes them)
+    plan = plan_sampling(*both, spacing=spacing, time_tolerance=time_tolerance)  # (closes them)
     runs = []
     for k, spec in enumerate((first, second)):
         options = MeasureOptions(field=spec.field, value_range=spec.value_range, phase=spec.phase, level=level,
