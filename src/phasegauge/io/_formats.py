@@ -10,15 +10,16 @@ meshio-style mesh: ``points``, ``cells``, ``point_data``, ``cell_data``,
 
 from __future__ import annotations
 
+import errno
 import importlib
 import os
 from dataclasses import dataclass
 from typing import Callable
 
-from ..errors import InputFileNotFound, UnreadableFileError
+from ..errors import InputFileNotFound, PhasegaugeError, UnreadableFileError, short_text
 
 __all__ = ["FileFormat", "register_format", "formats", "format_for", "mesh_suffixes", "read_mesh_file",
-           "peek_time", "TIME_NEEDS_FULL_READ"]
+           "peek_time", "TIME_NEEDS_FULL_READ", "check_readable"]
 
 #: the modules that declare formats, in the order their suffixes are listed
 FORMAT_MODULES = ("_vtk", "_multiblock", "_xdmf")
@@ -105,12 +106,7 @@ def read_mesh_file(path: str):
         A folder, an empty file, a suffix no format reads, or content the reader refuses.
     """
     path = os.fspath(path)
-    if not os.path.exists(path):
-        raise InputFileNotFound("file not found", where=path,
-                                fix="check the path (quote globs so the shell does not expand them)")
-    if os.path.isdir(path):
-        raise UnreadableFileError("is a folder, not a mesh file", where=path,
-                                  fix="give the folder itself as the series path")
+    check_readable(path)
     if os.path.getsize(path) == 0:
         raise UnreadableFileError("the file is empty", where=path,
                                   fix="the solver may have been stopped while writing; rewrite or remove the step")
@@ -118,7 +114,45 @@ def read_mesh_file(path: str):
     if fmt is None:
         raise UnreadableFileError(f"is not a mesh file ({suffix_list()})", where=path,
                                   fix="convert the file to VTK or XDMF")
-    return fmt.read(path)
+    try:
+        return fmt.read(path)
+    except PhasegaugeError:
+        raise
+    except OSError as exc:  # permission or file-system trouble met while reading
+        raise UnreadableFileError(f"cannot be read ({short_text(exc)})", where=path,
+                                  fix="check the file's permissions and the file system it is on") from None
+
+
+def check_readable(path: str, where: str = "") -> None:
+    """Refuse a path that is no readable file: missing, a symbolic link that loops or leads nowhere,
+    a folder, or a file the user may not read (by its permission bits: root reads any file).
+
+    Raises
+    ------
+    InputFileNotFound
+        No such file (nor a link of that name).
+    UnreadableFileError
+        A link loop, a dangling link, a folder, or no read permission.
+    """
+    where = where or path
+    if not os.path.exists(path):
+        if os.path.islink(path):
+            try:
+                os.stat(path)
+            except OSError as exc:
+                if exc.errno == errno.ELOOP:
+                    raise UnreadableFileError("is a symbolic link that loops (it leads back to itself)",
+                                              where=where, fix="point the link at the step's file") from None
+            raise UnreadableFileError(f"is a symbolic link to '{os.readlink(path)}', which does not exist",
+                                      where=where, fix="point the link at the step's file or restore that file")
+        raise InputFileNotFound("file not found", where=where,
+                                fix="check the path (quote globs so the shell does not expand them)")
+    if os.path.isdir(path):
+        raise UnreadableFileError("is a folder, not a mesh file", where=where,
+                                  fix="give the folder itself as the series path, or remove the folder from the series")
+    if not os.access(path, os.R_OK):
+        raise UnreadableFileError("cannot be read: no read permission for this user", where=where,
+                                  fix=f"grant read permission (chmod u+r {os.path.basename(path)}) or run as its owner")
 
 
 def peek_time(path: str):

@@ -252,6 +252,7 @@ class XdmfTimeSeries:
                                         where=where, fix="restore the HDF5 file next to the XDMF file") from None
             raise UnreadableFileError(f"cannot read the step's data ({short_text(exc)})", where=where,
                                       fix="check that the HDF5 file is complete (not truncated)") from None
+        _check_field_lengths(len(reader._points), reader.cells, point_data, cell_data, where)
         return key, meshio.Mesh(reader._points, reader.cells, point_data=point_data, cell_data=cell_data)
 
     def step(self, grid: int, where: str, pool=None) -> tuple[Mesh, "StepFields"]:
@@ -271,6 +272,23 @@ class XdmfTimeSeries:
                 handle.close()
             except Exception:
                 pass
+
+
+def _check_field_lengths(n_points: int, cells, point_data: dict, cell_data: dict, where: str) -> None:
+    """Refuse fields whose length does not match the points or the cell blocks (a step written short or long)."""
+    for name, values in point_data.items():
+        if len(values) != n_points:
+            raise FieldShapeError(f"point field '{name}' has {len(values)} values for {n_points} points",
+                                  where=where, fix=_WRITE_AGAIN)
+    sizes = [len(block.data) for block in cells]
+    for name, blocks in cell_data.items():
+        found = [len(b) for b in blocks]
+        if found != sizes:
+            raise FieldShapeError(f"cell field '{name}' has {sum(found)} values for {sum(sizes)} cells "
+                                  f"({sum(found) - sum(sizes):+d})", where=where, fix=_WRITE_AGAIN)
+
+
+_WRITE_AGAIN = "the step was written short or damaged: write it again or remove it from the series"
 
 
 def join_cell_data(mesh: Mesh, cell_data: dict, where: str = "") -> dict:

