@@ -149,6 +149,89 @@ def test_no_read_permission_as_the_check_sees_it(tmp_path, monkeypatch):
     assert "s_1.vtu" in html
 
 
+# ------------------------------------------------------------------ 2. times that are not numbers
+BAD_TIMES = {"text": ("abc", "'abc', not a finite number"), "empty": ("", "is empty"),
+             "nan": ("nan", "'nan', not a finite number"), "inf": ("inf", "'inf', not a finite number")}
+
+
+@pytest.mark.parametrize("kind", sorted(BAD_TIMES))
+@pytest.mark.parametrize("command", ["inspect", "measure"])
+def test_an_xdmf_time_that_is_not_a_number(tmp_path, kind, command):
+    case(f"xdmf Time {kind} ({command})")
+    value, words = BAD_TIMES[kind]
+    path = _xdmf(tmp_path, [DISC, DISC, DISC])
+    text = open(path).read().replace('<Time Value="0.1"', f'<Time Value="{value}"')
+    open(path, "w").write(text)
+    extra = ["--field", "alpha", "-o", tmp_path / "out", *FAST] if command == "measure" else []
+    _assert_one_error_line([command, path, *extra], "ts.xdmf, step 1", "XDMF <Time", words)
+    assert not os.path.exists(tmp_path / "out")
+
+
+@pytest.mark.parametrize("kind", ["text", "nan", "inf", "empty"])
+@pytest.mark.parametrize("command", ["inspect", "measure"])
+def test_a_listing_time_that_is_not_a_number(tmp_path, kind, command):
+    case(f"listing time {kind} ({command})")
+    value, words = BAD_TIMES[kind]
+    for k in (0, 1):
+        _good(tmp_path / f"s_{k}.vtu")
+    listing = tmp_path / "run.steps"
+    listing.write_text(f"0,s_0.vtu\n{value},s_1.vtu\n")
+    extra = ["--field", "alpha", "-o", tmp_path / "out", *FAST] if command == "measure" else []
+    needles = ["run.steps, line 2", words] if kind in ("nan", "inf") else ["run.steps", "line 2 is not 'time,path'"]
+    _assert_one_error_line([command, listing, *extra], *needles)
+
+
+def _with_time(path, value, *, binary, dtype=np.float64):
+    """A step written by VTK's own writer (pyvista) with ``TimeValue`` in its field data."""
+    import pyvista
+
+    grid = pyvista.from_meshio(to_meshio(MESH, cell_data={"alpha": DISC}))
+    grid.field_data["TimeValue"] = np.array([value], dtype=dtype)
+    grid.save(str(path), binary=binary)
+    return str(path)
+
+
+@pytest.mark.parametrize("name", [case("TimeValue nan in a legacy ASCII file"),
+                                  case("TimeValue inf in a binary VTU file"),
+                                  case("TimeValue as text in a legacy ASCII file")])
+@pytest.mark.parametrize("command", ["inspect", "measure"])
+def test_a_time_in_the_field_data_that_is_not_a_number(tmp_path, name, command):
+    folder = tmp_path / "in"
+    folder.mkdir()
+    _with_time(folder / "s_0.vtu", 0.0, binary=True)
+    suffix = ".vtu" if "VTU" in name else ".vtk"
+    bad = _with_time(folder / f"s_1{suffix}", np.inf if "inf" in name else np.nan, binary="binary" in name)
+    if "text" in name:
+        text = open(bad).read()
+        assert "double\nnan" in text
+        open(bad, "w").write(text.replace("double\nnan", "double\nsoon"))
+    extra = ["--field", "alpha", "-o", tmp_path / "out", *FAST] if command == "measure" else []
+    shown = "'soon'" if "text" in name else ("inf" if "inf" in name else "'nan'")
+    _assert_one_error_line([command, folder, *extra], f"s_1{suffix}, step 1", "TimeValue", shown,
+                           "not a finite number")
+
+
+@pytest.mark.parametrize("suffix", [".vtu", ".vtk"])
+@pytest.mark.parametrize("binary", [True, False])
+def test_a_time_stored_in_single_precision_keeps_its_own_digits(tmp_path, suffix, binary):
+    case(f"single-precision TimeValue ({suffix}, {'binary' if binary else 'ascii'})")
+    path = _with_time(tmp_path / f"s{suffix}", 0.15, binary=binary, dtype=np.float32)
+    code, err, out = _cli(["inspect", "--json", path])
+    assert code == 0, err
+    assert json.loads(out)["times"] == [0.15]  # not 0.150000006
+
+
+def test_a_listing_with_a_byte_order_mark_is_read(tmp_path):
+    case("listing with a UTF-8 byte-order mark")
+    for k in (0, 1):
+        _good(tmp_path / f"s_{k}.vtu")
+    listing = tmp_path / "run.steps"
+    listing.write_bytes(b"\xef\xbb\xbftime,path\n0,s_0.vtu\n0.5,s_1.vtu\n")
+    code, err, out = _cli(["inspect", "--json", listing])
+    assert code == 0, err
+    assert json.loads(out)["times"] == [0.0, 0.5]
+
+
 def test_the_corpus_size():
     """The corpus counts its cases (issue 21's closing note gives the number)."""
     assert len(set(CASES)) == len(CASES) >= 7

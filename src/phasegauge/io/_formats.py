@@ -16,10 +16,10 @@ import os
 from dataclasses import dataclass
 from typing import Callable
 
-from ..errors import InputFileNotFound, PhasegaugeError, UnreadableFileError, short_text
+from ..errors import InputFileNotFound, PhasegaugeError, SeriesError, UnreadableFileError, short_text
 
 __all__ = ["FileFormat", "register_format", "formats", "format_for", "mesh_suffixes", "read_mesh_file",
-           "peek_time", "TIME_NEEDS_FULL_READ", "check_readable"]
+           "peek_time", "TIME_NEEDS_FULL_READ", "check_readable", "stored_time"]
 
 #: the modules that declare formats, in the order their suffixes are listed
 FORMAT_MODULES = ("_vtk", "_multiblock", "_xdmf")
@@ -155,6 +155,39 @@ def check_readable(path: str, where: str = "") -> None:
                                   fix=f"grant read permission (chmod u+r {os.path.basename(path)}) or run as its owner")
 
 
+def stored_time(value, *, where: str, source: str, fix: str = "") -> float:
+    """A step time as stored (text or a number) as a float; single precision rounded to its own digits.
+
+    A time stored in single precision reads back as 0.150000006 for 0.15: it is taken with the
+    shortest decimal that single precision gives back (0.15).
+
+    Raises
+    ------
+    SeriesError
+        The value is text that is not a number, empty, NaN or infinite.
+    """
+    shown = value
+    try:
+        if isinstance(value, (bytes, bytearray)):
+            shown = value = value.decode("utf-8", errors="replace")
+        if isinstance(value, str):
+            shown = value.strip()
+            time = float(shown)
+        elif getattr(value, "dtype", None) is not None and value.dtype.kind == "f" and value.dtype.itemsize < 8:
+            time = float(str(value))  # numpy prints the shortest decimal of its own precision
+        else:
+            time = float(value)
+    except (TypeError, ValueError):
+        time = None
+    if time is None or time != time or time in (float("inf"), float("-inf")):
+        text = repr(shown[:40]) if isinstance(shown, str) else str(shown)
+        found = "is empty" if isinstance(shown, str) and not shown else f"is {text}, not a finite number"
+        raise SeriesError(f"the time {source} {found}", where=where,
+                          fix=fix or "write the step's time as a number, or give a 'time,path' listing "
+                                     "whose times are used instead")
+    return time
+
+
 def peek_time(path: str):
     """The time stored in a file, read cheaply: a float, None, or :data:`TIME_NEEDS_FULL_READ`."""
     fmt = format_for(path)
@@ -162,5 +195,7 @@ def peek_time(path: str):
         return None
     try:
         return fmt.peek_time(path)
+    except PhasegaugeError:
+        raise
     except (OSError, ValueError):
         return None

@@ -34,7 +34,8 @@ import numpy as np
 
 from ..errors import InputFileNotFound, PhasegaugeError, SeriesError, SeriesWarning, UnreadableFileError
 from ..model.mesh import Mesh
-from ._formats import TIME_NEEDS_FULL_READ, check_readable, format_for, peek_time, read_mesh_file, suffix_list
+from ._formats import (TIME_NEEDS_FULL_READ, check_readable, format_for, peek_time, read_mesh_file, stored_time,
+                       suffix_list)
 from ._mesh_pool import MeshPool
 from ._meshio_adapter import StepFields, XdmfTimeSeries, mesh_and_fields
 from ._xdmf import grid_time, temporal_grids
@@ -127,7 +128,7 @@ def read_listing(path: str) -> list[tuple[float, str]]:
     """
     base = os.path.dirname(os.path.abspath(path))
     rows = []
-    with open(path, encoding="utf-8", errors="replace") as handle:
+    with open(path, encoding="utf-8-sig", errors="replace") as handle:
         for number, line in enumerate(handle, start=1):
             text = line.strip()
             if not text or text.startswith("#"):
@@ -138,10 +139,12 @@ def read_listing(path: str) -> list[tuple[float, str]]:
             try:
                 if len(parts) != 2 or not parts[1]:
                     raise ValueError
-                time = float(parts[0])
+                float(parts[0])
             except ValueError:
                 raise SeriesError(f"line {number} is not 'time,path': {text[:60]!r}", where=path,
-                                  fix="write one 'time,path' pair a line") from None
+                                  fix="write one 'time,path' pair a line, the time a number") from None
+            time = stored_time(parts[0], where=f"{path}, line {number}", source="of the listing line",
+                               fix="write one 'time,path' pair a line, the time a finite number")
             rows.append((time, parts[1] if os.path.isabs(parts[1]) else os.path.join(base, parts[1])))
     if not rows:
         raise SeriesError("the listing holds no steps", where=path, fix="add 'time,path' lines")
@@ -267,7 +270,7 @@ class Series:
                 self.kind = "collection"
                 steps = []
                 for i, grid in enumerate(grids):
-                    t = grid_time(grid)
+                    t = grid_time(grid, where=f"{path}, step {i}")
                     if t is not None:
                         steps.append(StepInfo(i, t, "xdmf", path, grid=i))
                     else:
@@ -288,14 +291,18 @@ class Series:
         steps = []
         names = _message_names(files)
         for i, f in enumerate(files):
-            t = peek_time(f)
+            where = f"{names[i] or f}, step {i}"
+            try:
+                t = peek_time(f)
+            except SeriesError as err:
+                raise err.at(where) from None
             if t is TIME_NEEDS_FULL_READ:
                 try:
                     raw = read_mesh_file(f)
                 except PhasegaugeError:  # an unreadable step: its time is unknown; reading it fails later
                     steps.append(StepInfo(i, float("nan"), "unknown", f, name=names[i]))
                     continue
-                t = _time_from_field_data(raw.field_data)
+                t = _time_from_field_data(raw.field_data, where)
             if t is None:
                 steps.append(StepInfo(i, float(i), "index", f, name=names[i]))
             else:
@@ -376,7 +383,7 @@ class Series:
             except PhasegaugeError as err:
                 raise err.at(info.where) from None
             if info.time_origin == "index":
-                t = _time_from_field_data(fields.field_data)
+                t = _time_from_field_data(fields.field_data, info.where)
                 if t is not None:
                     info = dataclasses.replace(info, time=t, time_origin="file")
                     self.steps[index] = info
@@ -461,12 +468,19 @@ def _warn_numbering_gaps(files: list, where: str, steps: list) -> None:
                                 f"changed; {then}", where=where), stacklevel=3)
 
 
-def _time_from_field_data(field_data: dict) -> float | None:
+def _time_from_field_data(field_data: dict, where: str = "") -> float | None:
+    """The time a file stores in its field data (single precision rounded to its digits), or None.
+
+    Raises
+    ------
+    SeriesError
+        The stored time is not a finite number.
+    """
     for name in TIME_ARRAY_NAMES:
         if name in field_data:
             value = np.asarray(field_data[name]).ravel()
-            if value.size >= 1 and np.isfinite(value[0]):
-                return float(value[0])
+            if value.size >= 1:
+                return stored_time(value[0], where=where, source=f"stored in the file's field data ({name})")
     return None
 
 
