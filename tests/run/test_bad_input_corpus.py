@@ -232,6 +232,91 @@ def test_a_listing_with_a_byte_order_mark_is_read(tmp_path):
     assert json.loads(out)["times"] == [0.0, 0.5]
 
 
+# ------------------------------------------------------------------ 4. headers that claim huge sizes
+def _legacy_claim(path, *, binary, old, new):
+    _good(path, binary=binary)
+    data = open(path, "rb").read()
+    assert old in data
+    open(path, "wb").write(data.replace(old, new))
+    return str(path)
+
+
+def _hdf5_claim(path, *, compressed):
+    """An XDMF file whose points dataset (in its HDF5 file) claims three billion points."""
+    import h5py
+
+    old = os.getcwd()
+    os.chdir(path.parent)
+    try:
+        to_meshio(MESH, cell_data={"alpha": DISC}).write(path.name)
+    finally:
+        os.chdir(old)
+    with h5py.File(path.with_suffix(".h5"), "a") as f:
+        name = next(k for k in f if f[k].shape == (MESH.n_points, 3))
+        del f[name]
+        f.create_dataset(name, shape=(3_000_000_000, 3), dtype="f8", chunks=(1 << 16, 3),
+                         compression="gzip" if compressed else None)
+    return str(path)
+
+
+HUGE_CLAIMS = {
+    # name: (builder, words the one line must hold)
+    "legacy binary POINTS": (lambda p: _legacy_claim(p, binary=True, old=b"POINTS 81 ", new=b"POINTS 3000000000 "),
+                             ["3,000,000,000 points", "72,000,000,000 bytes", "but the file has only"]),
+    "legacy ASCII POINTS": (lambda p: _legacy_claim(p, binary=False, old=b"POINTS 81 ", new=b"POINTS 3000000000 "),
+                            ["3,000,000,000 points", "but the file has only"]),
+    "legacy CELL_TYPES": (lambda p: _legacy_claim(p, binary=True, old=b"CELL_TYPES 128",
+                                                  new=b"CELL_TYPES 2000000000"),
+                          ["2,000,000,000 cell types", "but the file has only"]),
+    "legacy CELLS": (lambda p: _legacy_claim(p, binary=True, old=b"CELLS 129", new=b"CELLS 2000000000"),
+                     ["2,000,000,000 cells", "but the file has only"]),
+    "HDF5 dataset stored short": (lambda p: _hdf5_claim(p, compressed=False),
+                                  ["HDF5 dataset", "9,000,000,000 values", "but stores only"]),
+    "HDF5 dataset compressed, beyond memory": (lambda p: _hdf5_claim(p, compressed=True),
+                                               ["HDF5 dataset", "9,000,000,000 values", "of memory",
+                                                "this machine has"]),
+}
+
+
+@pytest.mark.parametrize("name", sorted(HUGE_CLAIMS))
+def test_a_header_that_claims_a_huge_size_is_refused_with_the_numbers(tmp_path, name):
+    case(f"huge claim: {name}")
+    build, words = HUGE_CLAIMS[name]
+    path = build(tmp_path / ("s.xdmf" if "HDF5" in name else "s.vtk"))
+    _assert_one_error_line(["inspect", path], "s.", *words)
+
+
+def test_a_huge_claim_is_refused_without_allocating(tmp_path):
+    """The refusal reads headers only: the process's peak memory stays under 200 MB.
+
+    Measured in a subprocess with ``resource.getrusage``, or on Linux its ``VmHWM`` (which, unlike
+    ``ru_maxrss``, does not carry the pytest process's own peak across ``exec``).
+    """
+    case("huge claims refused within 200 MB (subprocess peak memory)")
+    paths = [HUGE_CLAIMS[n][0](tmp_path / f"c{k}{'.xdmf' if 'HDF5' in n else '.vtk'}")
+             for k, n in enumerate(sorted(HUGE_CLAIMS))]
+    code = ("import resource, sys\n"
+            "from click.testing import CliRunner\n"
+            "from phasegauge.cli import main\n"
+            "codes = [CliRunner().invoke(main, ['inspect', p]).exit_code for p in sys.argv[1:]]\n"
+            "peak = resource.getrusage(resource.RUSAGE_SELF).ru_maxrss\n"  # KiB on Linux
+            "try:\n"  # Linux keeps ru_maxrss across exec (the test process's own peak): VmHWM starts afresh
+            "    status = open('/proc/self/status').read().split('VmHWM:')[1]\n"
+            "    peak = int(status.split()[0])\n"
+            "except (OSError, IndexError):\n"
+            "    pass\n"
+            "print(codes, peak)\n")
+    import subprocess
+    import sys
+
+    env = dict(os.environ, PYTHONPATH=os.pathsep.join(sys.path))
+    done = subprocess.run([sys.executable, "-c", code, *paths], capture_output=True, text=True, env=env,
+                          check=True)
+    codes, peak = done.stdout.rsplit("]", 1)
+    assert codes.strip("[ ").split(", ") == ["2"] * len(paths), done.stdout
+    assert int(peak) < 200 * 1024, f"peak memory {int(peak) / 1024:.0f} MB"
+
+
 def test_the_corpus_size():
     """The corpus counts its cases (issue 21's closing note gives the number)."""
     assert len(set(CASES)) == len(CASES) >= 7

@@ -80,8 +80,10 @@ def read_with_meshio(path: str, fmt: str, *, fallback=None):
         with warnings.catch_warnings(), contextlib.redirect_stdout(io.StringIO()):
             warnings.simplefilter("ignore")
             return meshio_reader(fmt)(path)
-    except MemoryError:
-        raise
+    except MemoryError as exc:  # a size the header checks did not catch
+        raise UnreadableFileError(f"reading it needs more memory than this machine can give ({short_text(exc)})",
+                                  where=path, fix="the header may be damaged: write the step again; a real mesh "
+                                                  "this large needs a machine with more memory") from None
     except Exception as exc:  # meshio raises many kinds: say what is wrong with the file
         if fallback is not None:
             raw = fallback(path)

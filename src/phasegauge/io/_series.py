@@ -38,7 +38,8 @@ from ._formats import (TIME_NEEDS_FULL_READ, check_readable, format_for, peek_ti
                        suffix_list)
 from ._mesh_pool import MeshPool
 from ._meshio_adapter import StepFields, XdmfTimeSeries, mesh_and_fields
-from ._xdmf import grid_time, temporal_grids
+from ._claims import check_hdf5_claims
+from ._xdmf import grid_time, temporal_grids, xdmf_data_files
 
 __all__ = ["Series", "StepInfo", "Step", "open_series", "natural_key", "read_listing",
            "LISTING_SUFFIXES"]
@@ -397,6 +398,7 @@ class Series:
     def _read_collection_step(self, info: StepInfo):
         reader = self._xdmf_readers.get(info.path)
         if reader is None:
+            check_hdf5_claims(info.path, xdmf_data_files(info.path))
             reader = self._xdmf_readers[info.path] = XdmfTimeSeries(info.path)
         return reader.step(info.grid, info.where, self.mesh_pool)
 

@@ -17,6 +17,7 @@ import warnings
 import numpy as np
 
 from ..errors import UnreadableFileError, short_text
+from ._claims import check_legacy_claims, check_xml_claims
 from ._formats import TIME_NEEDS_FULL_READ, register_format, stored_time
 from ._meshio_adapter import read_with_meshio
 
@@ -141,10 +142,12 @@ def _structured_fallback(path: str):
 
 
 def read_xml_unstructured(path: str):
+    check_xml_claims(path)
     return read_with_meshio(path, "vtu")
 
 
 def read_legacy(path: str):
+    check_legacy_claims(path)
     return read_with_meshio(path, "vtk", fallback=_structured_fallback)
 
 

@@ -12,6 +12,7 @@ import re
 import xml.etree.ElementTree as ET
 
 from ..errors import UnreadableFileError
+from ._claims import check_hdf5_claims
 from ._formats import register_format, stored_time
 from ._meshio_adapter import read_with_meshio
 
@@ -84,6 +85,7 @@ def xdmf_data_files(path) -> list:
 
 
 def read_xdmf(path: str):
+    check_hdf5_claims(path, xdmf_data_files(path))
     return read_with_meshio(path, "xdmf")
 
 
