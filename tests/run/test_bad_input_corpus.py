@@ -317,6 +317,126 @@ def test_a_huge_claim_is_refused_without_allocating(tmp_path):
     assert int(peak) < 200 * 1024, f"peak memory {int(peak) / 1024:.0f} MB"
 
 
+# ------------------------------------------------------------------ 5. meshes wrong but read without a word
+_TRI = to_meshio(MESH).cells[0].data
+_PTS = to_meshio(MESH).points
+
+
+def _with_cells(path, cells, values):
+    meshio.Mesh(_PTS, [("triangle", cells)], cell_data={"alpha": [values]}).write(path)
+    return str(path)
+
+
+def _crowded_edge():
+    """One more triangle on an inner edge two triangles already share (its third corner another point)."""
+    edges = {}
+    for t in _TRI:
+        for i in range(3):
+            edges.setdefault(tuple(sorted((t[i], t[(i + 1) % 3]))), []).append(set(t))
+    (a, b), cells = next((e, c) for e, c in edges.items() if len(c) == 2)
+    other = next(p for p in range(len(_PTS)) if not any(p in c for c in cells))
+    return np.vstack([_TRI, [[a, b, other]]])
+
+
+def _crowded_count(cells):
+    """Edges of more than two triangles, counted plainly (a loop over the cells, as a check)."""
+    from collections import Counter
+
+    count = Counter(tuple(sorted((t[i], t[(i + 1) % 3]))) for t in cells for i in range(3))
+    return sum(1 for n in count.values() if n > 2)
+
+
+WRONG_MESHES = {
+    # name: (cells, values, words the one line must hold); refused: overlapping cells count their phase twice
+    "duplicate cells": (np.vstack([_TRI, _TRI[:10]]), np.r_[DISC, DISC[:10]],
+                        ["10 cells repeat the corners of another cell", "count twice"]),
+    "duplicate cells, corners reversed": (np.vstack([_TRI, _TRI[:7, ::-1]]), np.r_[DISC, DISC[:7]],
+                                          ["7 cells repeat the corners", "count twice"]),
+    "an edge of three triangles": (_crowded_edge(), np.r_[DISC, 0.5],
+                                   [f"{_crowded_count(_crowded_edge())} edge", "shared by more than two cells",
+                                    "cells overlap"]),
+    "a triangle over others, sharing no edge": (np.vstack([_TRI, [[0, 2, 20]]]), np.r_[DISC, 0.5],
+                                                ["boundary edges lie inside other cells", "cells overlap"]),
+}
+
+
+@pytest.mark.parametrize("name", sorted(WRONG_MESHES))
+@pytest.mark.parametrize("command", ["measure"])
+def test_cells_that_cover_space_twice_are_refused_with_the_count(tmp_path, name, command):
+    case(f"{name} ({command})")
+    cells, values, words = WRONG_MESHES[name]
+    path = _with_cells(tmp_path / "s.vtu", cells, values)
+    _assert_one_error_line(["measure", path, "--field", "alpha", "-o", tmp_path / "out", *FAST],
+                           "s.vtu, step 0", *words)
+
+
+def test_a_good_tetrahedron_mesh_has_no_overlap():
+    """The checks find nothing on conforming meshes (a false alarm would refuse good runs)."""
+    from phasegauge.meshgen import delaunay_mesh, grid_mesh
+    from phasegauge.model._overlaps import cell_overlaps
+
+    for mesh in (grid_mesh((4, 4, 4), kind="tetra"), delaunay_mesh(300, dimension=3, seed=1)
+                 if "dimension" in delaunay_mesh.__code__.co_varnames else grid_mesh((3, 3, 3), kind="tetra"),
+                 MESH, grid_mesh((5, 4), kind="quad")):
+        assert cell_overlaps(mesh) == {"duplicate_cells": 0, "crowded_faces": 0, "covered_boundary_faces": 0}
+
+
+def test_a_tetrahedron_inside_a_mesh_is_refused():
+    case("an extra tetrahedron inside a tetrahedron mesh")
+    from phasegauge.meshgen import grid_mesh
+    from phasegauge.model.mesh import Mesh
+    from phasegauge.model._overlaps import cell_overlaps
+
+    base = grid_mesh((3, 3, 3), kind="tetra")
+    tets = base.blocks[0].connectivity
+    extra = np.vstack([tets, [[0, 5, 21, 63]]])  # corners spread across the grid: lies over other cells
+    found = cell_overlaps(Mesh(base.points, [("tetra", extra)]))
+    assert found["crowded_faces"] + found["covered_boundary_faces"] > 0, found
+
+
+def test_xdmf_cells_of_whole_floats_warn_and_fractions_are_refused(tmp_path):
+    case("XDMF cells stored as floats (whole numbers: warned)")
+    case("XDMF cells stored as floats (fractions: refused)")
+    path = tmp_path / "s.xdmf"
+    meshio.Mesh(_PTS, [("triangle", _TRI)], cell_data={"alpha": [DISC]}).write(path, data_format="XML")
+    text = open(path).read()
+    start = text.find(">", text.find("<DataItem", text.find("<Topology"))) + 1
+    end = text.find("</DataItem>", start)
+    as_floats = " ".join(f"{float(v):.1f}" for v in text[start:end].split())
+    open(path, "w").write((text[:start] + as_floats + text[end:]).replace('DataType="Int"', 'DataType="Float"'))
+    err = _measure_ok(str(path), str(tmp_path / "out"))
+    assert any("128 triangle cells are stored as floating-point numbers" in ln for ln in err), err
+    open(path, "w").write((text[:start] + as_floats.replace("1.0", "1.5", 1) + text[end:]).replace(
+        'DataType="Int"', 'DataType="Float"'))
+    _assert_one_error_line(["inspect", path], "s.xdmf", "1 triangle cells have corner point numbers that are not whole")
+
+
+def test_points_with_two_coordinates_under_3d_cells_are_refused(tmp_path):
+    case("2 coordinates for tetrahedra (XDMF XY geometry)")
+    from phasegauge.meshgen import grid_mesh
+
+    tets = to_meshio(grid_mesh((2, 2, 2), kind="tetra"))
+    path = tmp_path / "s.xdmf"
+    meshio.Mesh(tets.points[:, :2], tets.cells).write(path, data_format="XML")
+    _assert_one_error_line(["inspect", path], "s.xdmf", "the points have 2 coordinates but the cells are 3D (tetra)")
+
+
+def test_xdmf_cell_data_longer_than_the_cells_is_refused(tmp_path):
+    case("XDMF cell data longer than the cells (one file)")
+    path = _xdmf(tmp_path, [np.concatenate([DISC, DISC[:10]])])
+    code, err, _ = _cli(["measure", path, "--field", "alpha", "-o", tmp_path / "out", *FAST])
+    assert code == 2 and "138 values for 128 cells" in err[-1], err
+
+
+def test_a_negative_corner_number_is_named_as_negative(tmp_path):
+    case("negative cell index")
+    cells = _TRI.copy()
+    cells[3, 1] = -5
+    path = tmp_path / "s.vtu"
+    meshio.Mesh(_PTS, [("triangle", cells)], cell_data={"alpha": [DISC]}).write(path)
+    _assert_one_error_line(["inspect", path], "s.vtu", "1 negative corner point number (the lowest -5)")
+
+
 def test_the_corpus_size():
     """The corpus counts its cases (issue 21's closing note gives the number)."""
     assert len(set(CASES)) == len(CASES) >= 7

@@ -305,6 +305,10 @@ def join_cell_data(mesh: Mesh, cell_data: dict, where: str = "") -> dict:
         except ValueError:
             raise FieldShapeError(f"cell field '{name}' has blocks of different shapes",
                                   where=where, fix="write the field with one shape in every block") from None
+        if out[name].shape[0] != mesh.n_cells:
+            found = out[name].shape[0]
+            raise FieldShapeError(f"cell field '{name}' has {found} values for {mesh.n_cells} cells "
+                                  f"({found - mesh.n_cells:+d})", where=where, fix=_WRITE_AGAIN)
     return out
 
 
@@ -317,6 +321,7 @@ def mesh_and_fields(raw, where: str, pool=None) -> tuple[Mesh, StepFields]:
     share their corners (:class:`MeshWarning`). The caller keeps the mesh in
     its pool.
     """
+    _check_raw_cells(raw, where)
     try:
         candidate = Mesh(raw.points, raw.cells)
     except UnsupportedMeshError as err:
@@ -327,6 +332,36 @@ def mesh_and_fields(raw, where: str, pool=None) -> tuple[Mesh, StepFields]:
         if mesh is not candidate and pool is not None:
             mesh = pool.match(mesh) or mesh
     return mesh, step_fields(mesh, raw, where)
+
+
+_SOLID = ("tetra", "hexahedron", "wedge", "pyramid", "voxel", "tetra10", "hexahedron20", "hexahedron27",
+          "wedge15", "pyramid13", "polyhedron")
+
+
+def _check_raw_cells(raw, where: str) -> None:
+    """Refuse cells a file stores in a form that reads without error but means something else.
+
+    Corner numbers stored as floating-point numbers are taken only when every one is a whole
+    number (:class:`MeshWarning` says so, with the count); points with two coordinates cannot
+    carry 3D cells.
+    """
+    points = np.asarray(raw.points)
+    solid = sorted({b.type for b in raw.cells if b.type in _SOLID or b.type.startswith("polyhedron")})
+    if points.ndim == 2 and points.shape[1] == 2 and solid:
+        raise UnsupportedMeshError(f"the points have 2 coordinates but the cells are 3D ({', '.join(solid)})",
+                                   where=where, fix="write the points with x, y and z (XDMF GeometryType XYZ)")
+    for block in raw.cells:
+        data = np.asarray(block.data) if not isinstance(block.data, list) else None
+        if data is None or data.dtype.kind != "f":
+            continue
+        whole = np.isfinite(data) & (data == np.round(data))
+        if not whole.all():
+            bad = int(np.count_nonzero(~whole.all(axis=-1))) if data.ndim == 2 else int(np.count_nonzero(~whole))
+            raise UnsupportedMeshError(f"{bad} {block.type} cells have corner point numbers that are not whole "
+                                       "numbers (the cells are stored as floating-point numbers)", where=where,
+                                       fix="write the cells as integers (XDMF Topology DataType=\"Int\")")
+        warnings.warn(MeshWarning(f"the {len(data)} {block.type} cells are stored as floating-point numbers; "
+                                  "read as the whole numbers they hold", where=where), stacklevel=4)
 
 
 def step_fields(mesh: Mesh, raw, where: str, *, field_data: bool = True) -> StepFields:

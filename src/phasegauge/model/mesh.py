@@ -159,7 +159,13 @@ class Mesh:
         n_points = self.points.shape[0]
         for block in self.blocks + self.boundary_blocks:
             conn = block.connectivity
-            if conn.size and (conn.min() < 0 or conn.max() >= n_points):
+            if conn.size and conn.min() < 0:
+                negative = int(np.count_nonzero(conn < 0))
+                raise UnsupportedMeshError(
+                    f"{block.cell_type} cells have {negative} negative corner point "
+                    f"number{'s' if negative > 1 else ''} (the lowest {int(conn.min())}); point numbers start at 0",
+                    fix="the file is damaged or was written with another numbering; write it again")
+            if conn.size and conn.max() >= n_points:
                 raise UnsupportedMeshError(
                     f"{block.cell_type} cells refer to point {int(conn.max())} but the mesh has "
                     f"{n_points} points", fix="the file is damaged; write it again")
