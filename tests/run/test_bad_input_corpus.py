@@ -437,6 +437,88 @@ def test_a_negative_corner_number_is_named_as_negative(tmp_path):
     _assert_one_error_line(["inspect", path], "s.vtu", "1 negative corner point number (the lowest -5)")
 
 
+# ------------------------------------------------------------------ 6. messages that misled
+def _sphere_patch(path):
+    """A closed surface of triangles in 3D, as a boundary patch, written by VTK's own writer."""
+    import pyvista
+
+    surface = pyvista.Sphere(theta_resolution=8, phi_resolution=8)
+    surface.cell_data["alpha"] = np.ones(surface.n_cells)
+    if str(path).endswith(".vtu"):
+        meshio.Mesh(surface.points, [("triangle", surface.faces.reshape(-1, 4)[:, 1:])],
+                    cell_data={"alpha": [np.ones(surface.n_cells)]}).write(path)
+    else:
+        surface.save(str(path), binary=not str(path).endswith("_ascii.vtk"))
+    return str(path)
+
+
+@pytest.mark.parametrize("name", [case("boundary patch .vtp"), case("boundary patch legacy POLYDATA"),
+                                  case("boundary patch legacy POLYDATA ASCII"),
+                                  case("boundary patch as triangles in 3D (.vtu)")])
+@pytest.mark.parametrize("command", ["inspect", "measure"])
+def test_a_boundary_patch_is_named_a_surface(tmp_path, name, command):
+    suffix = {"vtp": ".vtp", "ASCII": "_ascii.vtk", "POLYDATA": ".vtk", "vtu": ".vtu"}
+    end = next(v for k, v in suffix.items() if k in name)
+    path = _sphere_patch(tmp_path / f"patch{end}")
+    extra = ["--field", "alpha", "-o", tmp_path / "out", *FAST] if command == "measure" else []
+    line = _assert_one_error_line([command, path, *extra], "patch", "surface", "boundary patch", "volume")
+    assert "ends early" not in line and "solver may have stopped" not in line
+
+
+def test_a_folder_of_boundary_patches_is_named_so(tmp_path):
+    case("folder of surface files only")
+    for k in (0, 1):
+        _sphere_patch(tmp_path / f"wall_{k}.vtp")
+    _assert_one_error_line(["inspect", tmp_path], "only surface files", "boundary patches", "volume")
+
+
+def _numbered_with_times(folder, numbers, times):
+    folder.mkdir()
+    for n, t in zip(numbers, times):
+        _with_time(folder / f"run_{n}.vtu", t, binary=True)
+    return str(folder)
+
+
+def test_file_numbers_of_solver_time_steps_raise_no_gap_warning(tmp_path):
+    case("file numbers are time-step indices (0, 13, 26, 55, ...), times steady")
+    numbers = [0, 13, 26, 55, 70, 91]  # solver time-step indices, adaptive time step
+    folder = _numbered_with_times(tmp_path / "in", numbers, [0.1 * k for k in range(len(numbers))])
+    err = _measure_ok(folder, str(tmp_path / "out"))
+    assert not any("jump" in ln for ln in err), err
+
+
+def test_a_gap_in_the_times_themselves_warns(tmp_path):
+    case("stored times with a missing output (0, 0.1, 0.2, 0.4, 0.5)")
+    folder = _numbered_with_times(tmp_path / "in", [0, 13, 26, 55, 70], [0.0, 0.1, 0.2, 0.4, 0.5])
+    err = _measure_ok(folder, str(tmp_path / "out"))
+    assert sum("the step times jump (0.2 to 0.4)" in ln and "output interval 0.1" in ln for ln in err) == 1, err
+
+
+def test_time_gaps_rule():
+    from phasegauge.io._series import time_gaps
+
+    assert time_gaps([0, 0.1, 0.2, 0.3])[0] == []
+    assert time_gaps([0, 0.1, 0.2, 0.4, 0.5])[0] == [(0.2, 0.4)]
+    assert time_gaps(np.float32([0, 0.1, 0.2, 0.3, 0.4]).astype(float))[0] == []  # rounding is no gap
+
+
+@pytest.mark.parametrize("length", [case("path of 5 MB") and 5_000_000, case("file name of 300 kB") and 300_000])
+def test_an_error_line_stays_a_few_hundred_characters(tmp_path, length):
+    path = "/tmp/" + ("a/" * (length // 2) if length > 1_000_000 else "b" * length) + "x.vtu"
+    line = _assert_one_error_line(["inspect", path], "x.vtu", "characters long", " ... ")
+    assert len(line) < 800, len(line)
+
+
+def test_a_long_warning_line_is_cut_too():
+    from phasegauge.errors import MeshWarning, SeriesError, collapse_warnings
+
+    long = "/data/" + "deep/" * 100_000 + "s.vtu, step 3"
+    assert len(SeriesError("bad " * 1000, where=long, fix="do " * 1000).one_line()) < 800
+    assert len(MeshWarning("odd " * 1000, where=long).one_line()) < 800
+    (_, text), = collapse_warnings([(MeshWarning, "odd " * 1000, long)])
+    assert len(text) < 800 and text.endswith("...") is False
+
+
 def test_the_corpus_size():
     """The corpus counts its cases (issue 21's closing note gives the number)."""
     assert len(set(CASES)) == len(CASES) >= 7

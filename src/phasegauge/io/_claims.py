@@ -13,6 +13,7 @@ from __future__ import annotations
 
 import os
 import re
+from types import MappingProxyType
 
 from ..errors import UnreadableFileError
 
@@ -21,9 +22,11 @@ __all__ = ["available_memory", "check_legacy_claims", "check_xml_claims", "check
 _HEAD_BYTES = 1 << 16
 
 #: legacy VTK sections: keyword -> (how many values per count, which count: 1 first, 2 second)
-_LEGACY_SECTIONS = {b"POINTS": (3, 1), b"CELLS": (1, 2), b"CELL_TYPES": (1, 1), b"POLYGONS": (1, 2),
-                    b"TRIANGLE_STRIPS": (1, 2), b"LINES": (1, 2), b"VERTICES": (1, 2)}
-_SIZES = {b"double": 8, b"float": 4, b"int": 4, b"long": 8, b"vtktypeint64": 8, b"vtktypeint32": 4}
+_LEGACY_SECTIONS = MappingProxyType({b"POINTS": (3, 1), b"CELLS": (1, 2), b"CELL_TYPES": (1, 1),
+                                     b"POLYGONS": (1, 2), b"TRIANGLE_STRIPS": (1, 2), b"LINES": (1, 2),
+                                     b"VERTICES": (1, 2)})
+_SIZES = MappingProxyType({b"double": 8, b"float": 4, b"int": 4, b"long": 8, b"vtktypeint64": 8,
+                           b"vtktypeint32": 4})
 
 _DAMAGED = ("the header is damaged (or the file is cut short): write the step again or remove it from the "
             "series")

@@ -14,12 +14,14 @@ import errno
 import importlib
 import os
 from dataclasses import dataclass
+from types import MappingProxyType
 from typing import Callable
 
 from ..errors import InputFileNotFound, PhasegaugeError, SeriesError, UnreadableFileError, short_text
 
 __all__ = ["FileFormat", "register_format", "formats", "format_for", "mesh_suffixes", "read_mesh_file",
-           "peek_time", "TIME_NEEDS_FULL_READ", "check_readable", "stored_time"]
+           "peek_time", "TIME_NEEDS_FULL_READ", "check_readable", "stored_time",
+           "surface_file_problem", "SURFACE_SUFFIXES"]
 
 #: the modules that declare formats, in the order their suffixes are listed
 FORMAT_MODULES = ("_vtk", "_multiblock", "_xdmf")
@@ -112,6 +114,9 @@ def read_mesh_file(path: str):
                                   fix="the solver may have been stopped while writing; rewrite or remove the step")
     fmt = format_for(path)
     if fmt is None:
+        surface = surface_file_problem(path)
+        if surface is not None:
+            raise surface
         raise UnreadableFileError(f"is not a mesh file ({suffix_list()})", where=path,
                                   fix="convert the file to VTK or XDMF")
     try:
@@ -121,6 +126,22 @@ def read_mesh_file(path: str):
     except OSError as exc:  # permission or file-system trouble met while reading
         raise UnreadableFileError(f"cannot be read ({short_text(exc)})", where=path,
                                   fix="check the file's permissions and the file system it is on") from None
+
+
+#: suffixes of files that hold surfaces only (boundary patches), never a volume mesh
+SURFACE_SUFFIXES = MappingProxyType({".vtp": "VTK polydata", ".stl": "STL", ".obj": "OBJ",
+                                     ".ply": "PLY"})
+
+
+def surface_file_problem(path: str, where: str = ""):
+    """The error for a file whose suffix says it holds a surface (a boundary patch), or None."""
+    kind = SURFACE_SUFFIXES.get(os.path.splitext(os.fspath(path))[1].lower())
+    if kind is None:
+        return None
+    return UnreadableFileError(f"is a {kind} file: a surface (such as a boundary patch), not a volume mesh",
+                               where=where or path,
+                               fix="give the step's volume (internal) mesh (.vtu, .vtk, .xdmf): solver "
+                                   "converters write it beside the boundary patches")
 
 
 def check_readable(path: str, where: str = "") -> None:
@@ -135,6 +156,11 @@ def check_readable(path: str, where: str = "") -> None:
         A link loop, a dangling link, a folder, or no read permission.
     """
     where = where or path
+    longest = max((len(part) for part in path.split(os.sep)), default=0)
+    if len(path) >= 4096 or longest > 255:
+        raise InputFileNotFound(f"the path is {len(path):,} characters long (its longest part {longest:,}): longer "
+                                "than file systems allow, so no such file exists", where=where,
+                                fix="check how the path was built (a variable expanded many times?)")
     if not os.path.exists(path):
         if os.path.islink(path):
             try:

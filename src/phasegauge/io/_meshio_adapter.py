@@ -108,6 +108,9 @@ def meshio_reader(fmt: str):
 
 
 _STOPPED = "the solver may have stopped while writing it: write the step again or remove it from the series"
+_SURFACE_FILE = "holds a surface ({kind}, such as a boundary patch), not a volume mesh"
+_SURFACE_FIX = ("give the step's volume (internal) mesh: solver converters write it beside the boundary "
+                "patches, which hold only the surface cells")
 
 
 def diagnose_read_failure(path: str, fmt: str, exc: BaseException):
@@ -137,6 +140,9 @@ def diagnose_read_failure(path: str, fmt: str, exc: BaseException):
                                    f"({short_text(exc)})", where=path,
                                    fix="write the file again with a VTK or XDMF writer")
     if fmt == "vtk":
+        if head.startswith(b"# vtk DataFile") and b"\nDATASET POLYDATA" in head.upper():
+            return UnreadableFileError(_SURFACE_FILE.format(kind="a legacy VTK POLYDATA file"), where=path,
+                                       fix=_SURFACE_FIX)
         if not head.startswith(b"# vtk DataFile"):
             fix = ("rename it to .vtu" if head.lstrip().startswith(b"<") else
                    "give a file written by a VTK writer")
@@ -398,6 +404,11 @@ def _average_merged(values: np.ndarray, merge: np.ndarray, n: int) -> np.ndarray
 
 def _checked_mesh(mesh: Mesh, raw, where: str) -> Mesh:
     """Check a newly built mesh; merge coincident points."""
+    if mesh.dimension == 2:
+        try:
+            mesh.plane_axes  # a curved surface in 3D (a boundary patch) is no 2D domain
+        except UnsupportedMeshError as err:
+            raise err.with_where(where) from None
     finite = np.isfinite(mesh.points).all(axis=1)
     bad = 0 if finite.all() else int(np.count_nonzero(~finite[mesh.used_points]))
     if bad:

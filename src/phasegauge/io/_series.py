@@ -35,7 +35,7 @@ import numpy as np
 from ..errors import InputFileNotFound, PhasegaugeError, SeriesError, SeriesWarning, UnreadableFileError
 from ..model.mesh import Mesh
 from ._formats import (TIME_NEEDS_FULL_READ, check_readable, format_for, peek_time, read_mesh_file, stored_time,
-                       suffix_list)
+                       suffix_list, surface_file_problem)
 from ._mesh_pool import MeshPool
 from ._meshio_adapter import StepFields, XdmfTimeSeries, mesh_and_fields
 from ._claims import check_hdf5_claims
@@ -238,6 +238,11 @@ class Series:
             if not files:
                 files = step_folder_files(path)
             if not files:
+                surfaces = sorted(f for f in os.listdir(path) if surface_file_problem(f) is not None)
+                if surfaces:
+                    raise SeriesError(f"the folder holds only surface files ({len(surfaces)}, such as "
+                                      f"{surfaces[0]}: boundary patches), no volume mesh", where=path,
+                                      fix="give the folder of the volume (internal) mesh files")
                 raise SeriesError(f"the folder holds no mesh files ({suffix_list()}), nor folders of one "
                                   "mesh file each", where=path,
                                   fix="give a folder of mesh files or of step folders, a mesh file or a step listing")
@@ -281,6 +286,9 @@ class Series:
                                       fix="write at least one step")
                 return steps
         if not _is_mesh_file(path):
+            surface = surface_file_problem(path)
+            if surface is not None:
+                raise surface
             raise UnreadableFileError(
                 f"is neither a mesh file ({suffix_list()}) nor a step listing "
                 f"({', '.join(LISTING_SUFFIXES)})", where=path,
@@ -456,7 +464,36 @@ def numbering_gaps(files: list) -> list:
     return gaps
 
 
+def time_gaps(times) -> tuple[list, float]:
+    """Gaps in a series' own times: ``([(before, after), ...], interval)``.
+
+    The output interval is the median step between consecutive (finite) times; a gap is a
+    step of at least twice it (a whole output missing). Solver files numbered by time-step
+    index (0, 13, 26, 55, ...) with a steady output interval in time show no gap.
+    """
+    times = np.asarray([t for t in times if np.isfinite(t)], dtype=np.float64)
+    if times.size < 3:
+        return [], float("nan")
+    diffs = np.diff(times)
+    interval = float(np.median(diffs))
+    if not interval > 0:
+        return [], interval
+    jumps = np.flatnonzero(diffs >= 2 * interval * (1 - 1e-6))
+    return [(float(times[i]), float(times[i + 1])) for i in jumps], interval
+
+
 def _warn_numbering_gaps(files: list, where: str, steps: list) -> None:
+    if steps and all(s.time_origin in ("file", "xdmf", "listing", "unknown") for s in steps) and \
+            any(s.time_origin != "unknown" for s in steps):
+        # the files store their times: those, not the file numbers, say whether outputs are missing
+        gaps, interval = time_gaps([s.time for s in steps])
+        if gaps:
+            shown = ", ".join(f"{a:g} to {b:g}" for a, b in gaps[:3]) + (
+                f" and {len(gaps) - 3} more" if len(gaps) > 3 else "")
+            warnings.warn(SeriesWarning(f"the step times jump ({shown}) against the series' output interval "
+                                        f"{interval:g}: steps may be missing or the output interval changed",
+                                        where=where), stacklevel=3)
+        return
     gaps = numbering_gaps(files)
     if not gaps:
         return

@@ -276,8 +276,10 @@ class Mesh:
         flat = [ax for ax in range(3) if extent[ax] <= 1e-9 * scale]
         if not flat:
             raise UnsupportedMeshError(
-                "the 2D cells do not lie in a plane normal to x, y or z",
-                fix="write 2D results in a coordinate plane (for example z = 0)")
+                "the 2D cells do not lie in a plane normal to x, y or z: this is a surface in 3D (such as a "
+                "boundary patch), not a volume mesh",
+                fix="give the step's volume (internal) mesh, or write 2D results in a coordinate plane "
+                    "(for example z = 0)")
         normal = flat[-1] if len(flat) > 1 else flat[0]
         if len(flat) > 1:
             normal = 2 if 2 in flat else flat[0]
