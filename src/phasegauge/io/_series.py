@@ -467,18 +467,23 @@ def numbering_gaps(files: list) -> list:
 def time_gaps(times) -> tuple[list, float]:
     """Gaps in a series' own times: ``([(before, after), ...], interval)``.
 
-    The output interval is the median step between consecutive (finite) times; a gap is a
-    step of at least twice it (a whole output missing). Solver files numbered by time-step
-    index (0, 13, 26, 55, ...) with a steady output interval in time show no gap.
+    The rule of :func:`numbering_gaps`, on the times: the output interval is the smallest step
+    between consecutive (finite, increasing) times, and a gap is a step of a whole multiple (two
+    or more, to a part in a thousand) of it. Solver files numbered by time-step index (0, 13,
+    26, 55, ...) with a steady output interval in time show no gap; irregular output times
+    that are no multiple of the interval are no gap either.
     """
     times = np.asarray([t for t in times if np.isfinite(t)], dtype=np.float64)
     if times.size < 3:
         return [], float("nan")
     diffs = np.diff(times)
-    interval = float(np.median(diffs))
-    if not interval > 0:
-        return [], interval
-    jumps = np.flatnonzero(diffs >= 2 * interval * (1 - 1e-6))
+    steps = diffs[diffs > 0]
+    if steps.size == 0:
+        return [], float("nan")
+    interval = float(steps.min())
+    ratio = diffs / interval
+    whole = np.abs(ratio - np.round(ratio)) <= 1e-3 * np.maximum(ratio, 1.0)
+    jumps = np.flatnonzero((ratio >= 2 - 1e-3) & whole)
     return [(float(times[i]), float(times[i + 1])) for i in jumps], interval
 
 
@@ -486,7 +491,10 @@ def _warn_numbering_gaps(files: list, where: str, steps: list) -> None:
     if steps and all(s.time_origin in ("file", "xdmf", "listing", "unknown") for s in steps) and \
             any(s.time_origin != "unknown" for s in steps):
         # the files store their times: those, not the file numbers, say whether outputs are missing
-        gaps, interval = time_gaps([s.time for s in steps])
+        known = np.array([s.time for s in steps if np.isfinite(s.time)])
+        if np.any(np.diff(known) <= 0):
+            return  # times out of order: the order is reported (or sorted) instead
+        gaps, interval = time_gaps(known)
         if gaps:
             shown = ", ".join(f"{a:g} to {b:g}" for a, b in gaps[:3]) + (
                 f" and {len(gaps) - 3} more" if len(gaps) > 3 else "")
