@@ -361,13 +361,19 @@ WRONG_MESHES = {
 
 
 @pytest.mark.parametrize("name", sorted(WRONG_MESHES))
-@pytest.mark.parametrize("command", ["measure"])
+@pytest.mark.parametrize("command", ["measure", "inspect"])
 def test_cells_that_cover_space_twice_are_refused_with_the_count(tmp_path, name, command):
     case(f"{name} ({command})")
     cells, values, words = WRONG_MESHES[name]
     path = _with_cells(tmp_path / "s.vtu", cells, values)
-    _assert_one_error_line(["measure", path, "--field", "alpha", "-o", tmp_path / "out", *FAST],
-                           "s.vtu, step 0", *words)
+    if command == "measure":
+        _assert_one_error_line(["measure", path, "--field", "alpha", "-o", tmp_path / "out", *FAST],
+                               "s.vtu, step 0", *words)
+        return
+    code, err, _ = _cli(["inspect", path])  # inspect describes the mesh and says measure refuses it
+    assert code == 0, err
+    lines = [ln for ln in _warning_lines(err) if "measure refuses this mesh" in ln]
+    assert len(lines) == 1 and all(w in lines[0] for w in words), err
 
 
 def test_a_good_tetrahedron_mesh_has_no_overlap():

@@ -16,7 +16,7 @@ import numpy as np
 
 from ._grouping import group_columns, sort_small_rows
 
-__all__ = ["cell_overlaps"]
+__all__ = ["cell_overlaps", "overlap_problem"]
 
 
 def cell_overlaps(mesh) -> dict:
@@ -30,6 +30,30 @@ def cell_overlaps(mesh) -> dict:
         (int: faces of one cell whose outer side lies inside another cell).
     """
     return mesh.memo("cell_overlaps", lambda: _overlaps(mesh))
+
+
+def overlap_problem(mesh) -> str | None:
+    """What makes the cells of ``mesh`` cover space twice, with the count, or None.
+
+    Repeated cells and overlapping cells count their phase twice (the phase volume grows, droplets
+    split), so a run refuses such a mesh rather than measure it.
+    """
+    found = cell_overlaps(mesh)
+    if found["duplicate_cells"]:
+        n = found["duplicate_cells"]
+        return (f"{n} cell{'s' if n > 1 else ''} repeat{'' if n > 1 else 's'} the corners of another cell (stored "
+                f"twice), so {'their' if n > 1 else 'its'} phase would count twice")
+    if found["crowded_faces"]:
+        n = found["crowded_faces"]
+        face = "edge" if mesh.dimension == 2 else "face"
+        return (f"{n} {face}{'s are' if n > 1 else ' is'} shared by more than two cells, so cells overlap and "
+                f"their phase would count twice")
+    if found["covered_boundary_faces"]:
+        n = found["covered_boundary_faces"]
+        face = "edge" if mesh.dimension == 2 else "face"
+        return (f"{n} boundary {face}{'s lie' if n > 1 else ' lies'} inside other cells, so cells overlap and "
+                "their phase would count twice")
+    return None
 
 
 def _overlaps(mesh) -> dict:

@@ -22,7 +22,7 @@ from ..errors import (AnalysisError, FieldNotFoundError, InputError, InputFileNo
 from ..model.fields import vector_field
 from ..model.indicator import make_indicator
 from ..model.outline import MeshOutline
-from ..model._overlaps import cell_overlaps
+from ..model._overlaps import overlap_problem
 from ._sampling import sample_step
 
 __all__ = ["StepResult", "StepRunner", "analyse_step", "run_step", "STEP_ERRORS"]
@@ -105,30 +105,6 @@ def check_mesh(mesh, where: str, *, reported: set | None = None) -> None:
         text = (f"1 cell has zero {word}; it carries" if degenerate == 1 else
                 f"{degenerate} cells have zero {word}; they carry")
         warnings.warn(MeshWarning(f"{text} no phase volume", where=where), stacklevel=3)
-
-
-def overlap_problem(mesh) -> str | None:
-    """What makes the cells of ``mesh`` cover space twice, with the count, or None.
-
-    Repeated cells and overlapping cells count their phase twice (the phase volume grows, droplets
-    split), so a run refuses such a mesh rather than measure it.
-    """
-    found = cell_overlaps(mesh)
-    if found["duplicate_cells"]:
-        n = found["duplicate_cells"]
-        return (f"{n} cell{'s' if n > 1 else ''} repeat{'' if n > 1 else 's'} the corners of another cell (stored "
-                f"twice), so {'their' if n > 1 else 'its'} phase would count twice")
-    if found["crowded_faces"]:
-        n = found["crowded_faces"]
-        face = "edge" if mesh.dimension == 2 else "face"
-        return (f"{n} {face}{'s are' if n > 1 else ' is'} shared by more than two cells, so cells overlap and "
-                f"their phase would count twice")
-    if found["covered_boundary_faces"]:
-        n = found["covered_boundary_faces"]
-        face = "edge" if mesh.dimension == 2 else "face"
-        return (f"{n} boundary {face}{'s lie' if n > 1 else ' lies'} inside other cells, so cells overlap and "
-                "their phase would count twice")
-    return None
 
 
 def _cells(count: int) -> str:
