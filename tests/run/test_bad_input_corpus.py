@@ -434,6 +434,20 @@ def test_xdmf_cell_data_longer_than_the_cells_is_refused(tmp_path):
     assert code == 2 and "138 values for 128 cells" in err[-1], err
 
 
+@pytest.mark.parametrize("extra", [3, -3])
+def test_vtu_cell_data_of_the_wrong_length_is_refused(tmp_path, extra):
+    case(f"VTU cell data {abs(extra)} values {'longer' if extra > 0 else 'shorter'} than the cells")
+    path = tmp_path / "s.vtu"
+    meshio.Mesh(_PTS, [("triangle", _TRI)], cell_data={"alpha": [DISC]}).write(path, binary=False)
+    text = open(path).read()
+    start = text.find(">", text.find('Name="alpha"')) + 1
+    end = text.find("</DataArray>", start)
+    values = text[start:end].split()
+    values = values + ["0.5"] * extra if extra > 0 else values[:extra]
+    open(path, "w").write(text[:start] + "\n" + " ".join(values) + "\n" + text[end:])
+    _assert_one_error_line(["inspect", path], "s.vtu", f"cell field 'alpha' has {128 + extra} values for 128 cells")
+
+
 def test_a_negative_corner_number_is_named_as_negative(tmp_path):
     case("negative cell index")
     cells = _TRI.copy()

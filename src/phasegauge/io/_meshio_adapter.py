@@ -41,11 +41,36 @@ def ensure_vtk_extras() -> None:
     import meshio._mesh as mesh_module
     import meshio._vtk_common as vtk_common
 
+    _check_vtu_cell_data_lengths()
     vtk_common.vtk_to_meshio_type.setdefault(8, "pixel")
     vtk_common.vtk_to_meshio_type.setdefault(11, "voxel")
     for name, nodes, dim in (("pixel", 4, 2), ("voxel", 8, 3)):
         common.num_nodes_per_cell.setdefault(name, nodes)
         mesh_module.topological_dimension.setdefault(name, dim)
+
+
+def _check_vtu_cell_data_lengths() -> None:
+    """Make meshio's VTU reader refuse cell data longer or shorter than the cells (idempotent).
+
+    The reader slices each cell array by the cells of each type and drops what is left over, so
+    a cell field of the wrong length would read without a word; the check wraps the one function
+    that does the slicing.
+    """
+    import meshio.vtu._vtu as vtu
+
+    if getattr(vtu.vtk_cells_from_data, "checks_cell_data_lengths", False):
+        return
+    original = vtu.vtk_cells_from_data
+
+    def vtk_cells_from_data(connectivity, offsets, types, cell_data_raw):
+        for name, values in cell_data_raw.items():
+            if len(values) != len(types):
+                raise ValueError(f"cell field '{name}' has {len(values)} values for {len(types)} cells "
+                                 f"({len(values) - len(types):+d})")
+        return original(connectivity, offsets, types, cell_data_raw)
+
+    vtk_cells_from_data.checks_cell_data_lengths = True
+    vtu.vtk_cells_from_data = vtk_cells_from_data
 
 
 @dataclass
