@@ -36,6 +36,7 @@ __all__ = [
     "MeshWarning",
     "collapse_warnings",
     "short_text",
+    "cut_middle",
 ]
 
 
@@ -62,13 +63,14 @@ class PhasegaugeError(Exception):
         super().__init__(self.one_line())
 
     def one_line(self) -> str:
-        """The message as one line: ``where: what; fix``."""
-        text = self.what
+        """The message as one line: ``where: what; fix``, each part cut to a few hundred characters
+        (a path of megabytes keeps its start and its end)."""
+        text = cut_middle(self.what, WHAT_LIMIT)
         if self.where:
-            text = f"{self.where}: {text}"
+            text = f"{cut_middle(self.where, WHERE_LIMIT)}: {text}"
         if self.fix:
-            text = f"{text}; {self.fix}"
-        return " ".join(text.split())
+            text = f"{text}; {cut_middle(self.fix, FIX_LIMIT)}"
+        return text
 
     def with_where(self, where: str) -> "PhasegaugeError":
         """Return a copy of this error with ``where`` set (when it was empty)."""
@@ -155,8 +157,9 @@ class PhasegaugeWarning(UserWarning):
         super().__init__(self.one_line())
 
     def one_line(self) -> str:
-        """The message as one line: ``where: what``."""
-        return f"{self.where}: {self.what}" if self.where else self.what
+        """The message as one line: ``where: what`` (each part cut as errors cut theirs)."""
+        what = cut_middle(self.what, WHAT_LIMIT)
+        return f"{cut_middle(self.where, WHERE_LIMIT)}: {what}" if self.where else what
 
     def __reduce__(self):
         return (type(self), (self.what, self.where))
@@ -218,11 +221,28 @@ def collapse_warnings(records) -> list:
     out = []
     for category, what, where, more in groups.values():
         more.discard(where)
-        text = f"{where}: {what}" if where else what
+        text = cut_middle(what, WHAT_LIMIT)
+        if where:
+            text = f"{cut_middle(where, WHERE_LIMIT)}: {text}"
         if more:
             text += f" (and {len(more)} more step{'s' if len(more) > 1 else ''})"
         out.append((category, text))
     return out
+
+
+#: the longest ``where``, ``what`` and ``fix`` a message line shows (characters)
+WHERE_LIMIT, WHAT_LIMIT, FIX_LIMIT = 160, 360, 240
+
+
+def cut_middle(text: str, limit: int) -> str:
+    """``text`` on one line, cut in the middle to at most ``limit`` characters when longer
+    (``start ... end``: a path keeps its first folders and its file name)."""
+    text = " ".join(str(text).split())
+    if len(text) <= limit:
+        return text
+    keep = limit - 5
+    head = keep * 2 // 5
+    return f"{text[:head]} ... {text[len(text) - (keep - head):]}"
 
 
 def short_text(exc: BaseException, limit: int = 120) -> str:

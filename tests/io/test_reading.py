@@ -209,7 +209,7 @@ def test_truncated_vtu(tmp_path):
 def test_missing_path_and_wrong_suffix(tmp_path):
     with pytest.raises(InputFileNotFound, match="file not found"):
         Series(tmp_path / "nope.vtu")
-    other = tmp_path / "x.obj"
+    other = tmp_path / "x.dat"
     other.write_text("v 0 0 0\n")
     with pytest.raises(UnreadableFileError, match="neither a mesh file"):
         Series(other)

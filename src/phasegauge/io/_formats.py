@@ -10,15 +10,18 @@ meshio-style mesh: ``points``, ``cells``, ``point_data``, ``cell_data``,
 
 from __future__ import annotations
 
+import errno
 import importlib
 import os
 from dataclasses import dataclass
+from types import MappingProxyType
 from typing import Callable
 
-from ..errors import InputFileNotFound, UnreadableFileError
+from ..errors import InputFileNotFound, PhasegaugeError, SeriesError, UnreadableFileError, short_text
 
 __all__ = ["FileFormat", "register_format", "formats", "format_for", "mesh_suffixes", "read_mesh_file",
-           "peek_time", "TIME_NEEDS_FULL_READ"]
+           "peek_time", "TIME_NEEDS_FULL_READ", "check_readable", "stored_time",
+           "surface_file_problem", "SURFACE_SUFFIXES"]
 
 #: the modules that declare formats, in the order their suffixes are listed
 FORMAT_MODULES = ("_vtk", "_multiblock", "_xdmf")
@@ -105,20 +108,110 @@ def read_mesh_file(path: str):
         A folder, an empty file, a suffix no format reads, or content the reader refuses.
     """
     path = os.fspath(path)
-    if not os.path.exists(path):
-        raise InputFileNotFound("file not found", where=path,
-                                fix="check the path (quote globs so the shell does not expand them)")
-    if os.path.isdir(path):
-        raise UnreadableFileError("is a folder, not a mesh file", where=path,
-                                  fix="give the folder itself as the series path")
+    check_readable(path)
     if os.path.getsize(path) == 0:
         raise UnreadableFileError("the file is empty", where=path,
                                   fix="the solver may have been stopped while writing; rewrite or remove the step")
     fmt = format_for(path)
     if fmt is None:
+        surface = surface_file_problem(path)
+        if surface is not None:
+            raise surface
         raise UnreadableFileError(f"is not a mesh file ({suffix_list()})", where=path,
                                   fix="convert the file to VTK or XDMF")
-    return fmt.read(path)
+    try:
+        return fmt.read(path)
+    except PhasegaugeError:
+        raise
+    except OSError as exc:  # permission or file-system trouble met while reading
+        raise UnreadableFileError(f"cannot be read ({short_text(exc)})", where=path,
+                                  fix="check the file's permissions and the file system it is on") from None
+
+
+#: suffixes of files that hold surfaces only (boundary patches), never a volume mesh
+SURFACE_SUFFIXES = MappingProxyType({".vtp": "VTK polydata", ".stl": "STL", ".obj": "OBJ",
+                                     ".ply": "PLY"})
+
+
+def surface_file_problem(path: str, where: str = ""):
+    """The error for a file whose suffix says it holds a surface (a boundary patch), or None."""
+    kind = SURFACE_SUFFIXES.get(os.path.splitext(os.fspath(path))[1].lower())
+    if kind is None:
+        return None
+    return UnreadableFileError(f"is a {kind} file: a surface (such as a boundary patch), not a volume mesh",
+                               where=where or path,
+                               fix="give the step's volume (internal) mesh (.vtu, .vtk, .xdmf): solver "
+                                   "converters write it beside the boundary patches")
+
+
+def check_readable(path: str, where: str = "") -> None:
+    """Refuse a path that is no readable file: missing, a symbolic link that loops or leads nowhere,
+    a folder, or a file the user may not read (by its permission bits: root reads any file).
+
+    Raises
+    ------
+    InputFileNotFound
+        No such file (nor a link of that name).
+    UnreadableFileError
+        A link loop, a dangling link, a folder, or no read permission.
+    """
+    where = where or path
+    longest = max((len(part) for part in path.split(os.sep)), default=0)
+    if len(path) >= 4096 or longest > 255:
+        raise InputFileNotFound(f"the path is {len(path):,} characters long (its longest part {longest:,}): longer "
+                                "than file systems allow, so no such file exists", where=where,
+                                fix="check how the path was built (a variable expanded many times?)")
+    if not os.path.exists(path):
+        if os.path.islink(path):
+            try:
+                os.stat(path)
+            except OSError as exc:
+                if exc.errno == errno.ELOOP:
+                    raise UnreadableFileError("is a symbolic link that loops (it leads back to itself)",
+                                              where=where, fix="point the link at the step's file") from None
+            raise UnreadableFileError(f"is a symbolic link to '{os.readlink(path)}', which does not exist",
+                                      where=where, fix="point the link at the step's file or restore that file")
+        raise InputFileNotFound("file not found", where=where,
+                                fix="check the path (quote globs so the shell does not expand them)")
+    if os.path.isdir(path):
+        raise UnreadableFileError("is a folder, not a mesh file", where=where,
+                                  fix="give the folder itself as the series path, or remove the folder from the series")
+    if not os.access(path, os.R_OK):
+        raise UnreadableFileError("cannot be read: no read permission for this user", where=where,
+                                  fix=f"grant read permission (chmod u+r {os.path.basename(path)}) or run as its owner")
+
+
+def stored_time(value, *, where: str, source: str, fix: str = "") -> float:
+    """A step time as stored (text or a number) as a float; single precision rounded to its own digits.
+
+    A time stored in single precision reads back as 0.150000006 for 0.15: it is taken with the
+    shortest decimal that single precision gives back (0.15).
+
+    Raises
+    ------
+    SeriesError
+        The value is text that is not a number, empty, NaN or infinite.
+    """
+    shown = value
+    try:
+        if isinstance(value, (bytes, bytearray)):
+            shown = value = value.decode("utf-8", errors="replace")
+        if isinstance(value, str):
+            shown = value.strip()
+            time = float(shown)
+        elif getattr(value, "dtype", None) is not None and value.dtype.kind == "f" and value.dtype.itemsize < 8:
+            time = float(str(value))  # numpy prints the shortest decimal of its own precision
+        else:
+            time = float(value)
+    except (TypeError, ValueError):
+        time = None
+    if time is None or time != time or time in (float("inf"), float("-inf")):
+        text = repr(shown[:40]) if isinstance(shown, str) else str(shown)
+        found = "is empty" if isinstance(shown, str) and not shown else f"is {text}, not a finite number"
+        raise SeriesError(f"the time {source} {found}", where=where,
+                          fix=fix or "write the step's time as a number, or give a 'time,path' listing "
+                                     "whose times are used instead")
+    return time
 
 
 def peek_time(path: str):
@@ -128,5 +221,7 @@ def peek_time(path: str):
         return None
     try:
         return fmt.peek_time(path)
+    except PhasegaugeError:
+        raise
     except (OSError, ValueError):
         return None

@@ -35,7 +35,7 @@ def input_files(series, known_sha256: dict | None = None) -> list:
     -------
     list of dict
         ``{"path": absolute path, "bytes": size, "sha256": hex digest}`` for each file that
-        exists, in order: the listing, the step files (each multiblock file followed by its
+        exists (``"sha256"`` is None for a file that cannot be read), in order: the listing, the step files (each multiblock file followed by its
         volume blocks), the data files.
     """
     from ._multiblock import multiblock_data_files
@@ -56,7 +56,10 @@ def input_files(series, known_sha256: dict | None = None) -> list:
         full = os.path.abspath(f)
         if full in seen or not os.path.isfile(f):
             continue
+        try:
+            digest = known.get(f) or file_sha256(f)
+        except OSError:  # a file the user may not read (its step was skipped): listed without a hash
+            digest = None
         seen.add(full)
-        out.append({"path": full, "bytes": os.path.getsize(f),
-                    "sha256": known.get(f) or file_sha256(f)})
+        out.append({"path": full, "bytes": os.path.getsize(f), "sha256": digest})
     return out

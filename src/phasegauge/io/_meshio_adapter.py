@@ -41,11 +41,36 @@ def ensure_vtk_extras() -> None:
     import meshio._mesh as mesh_module
     import meshio._vtk_common as vtk_common
 
+    _check_vtu_cell_data_lengths()
     vtk_common.vtk_to_meshio_type.setdefault(8, "pixel")
     vtk_common.vtk_to_meshio_type.setdefault(11, "voxel")
     for name, nodes, dim in (("pixel", 4, 2), ("voxel", 8, 3)):
         common.num_nodes_per_cell.setdefault(name, nodes)
         mesh_module.topological_dimension.setdefault(name, dim)
+
+
+def _check_vtu_cell_data_lengths() -> None:
+    """Make meshio's VTU reader refuse cell data longer or shorter than the cells (idempotent).
+
+    The reader slices each cell array by the cells of each type and drops what is left over, so
+    a cell field of the wrong length would read without a word; the check wraps the one function
+    that does the slicing.
+    """
+    import meshio.vtu._vtu as vtu
+
+    if getattr(vtu.vtk_cells_from_data, "checks_cell_data_lengths", False):
+        return
+    original = vtu.vtk_cells_from_data
+
+    def vtk_cells_from_data(connectivity, offsets, types, cell_data_raw):
+        for name, values in cell_data_raw.items():
+            if len(values) != len(types):
+                raise ValueError(f"cell field '{name}' has {len(values)} values for {len(types)} cells "
+                                 f"({len(values) - len(types):+d})")
+        return original(connectivity, offsets, types, cell_data_raw)
+
+    vtk_cells_from_data.checks_cell_data_lengths = True
+    vtu.vtk_cells_from_data = vtk_cells_from_data
 
 
 @dataclass
@@ -80,8 +105,10 @@ def read_with_meshio(path: str, fmt: str, *, fallback=None):
         with warnings.catch_warnings(), contextlib.redirect_stdout(io.StringIO()):
             warnings.simplefilter("ignore")
             return meshio_reader(fmt)(path)
-    except MemoryError:
-        raise
+    except MemoryError as exc:  # a size the header checks did not catch
+        raise UnreadableFileError(f"reading it needs more memory than this machine can give ({short_text(exc)})",
+                                  where=path, fix="the header may be damaged: write the step again; a real mesh "
+                                                  "this large needs a machine with more memory") from None
     except Exception as exc:  # meshio raises many kinds: say what is wrong with the file
         if fallback is not None:
             raw = fallback(path)
@@ -106,6 +133,9 @@ def meshio_reader(fmt: str):
 
 
 _STOPPED = "the solver may have stopped while writing it: write the step again or remove it from the series"
+_SURFACE_FILE = "holds a surface ({kind}, such as a boundary patch), not a volume mesh"
+_SURFACE_FIX = ("give the step's volume (internal) mesh: solver converters write it beside the boundary "
+                "patches, which hold only the surface cells")
 
 
 def diagnose_read_failure(path: str, fmt: str, exc: BaseException):
@@ -135,6 +165,9 @@ def diagnose_read_failure(path: str, fmt: str, exc: BaseException):
                                    f"({short_text(exc)})", where=path,
                                    fix="write the file again with a VTK or XDMF writer")
     if fmt == "vtk":
+        if head.startswith(b"# vtk DataFile") and b"\nDATASET POLYDATA" in head.upper():
+            return UnreadableFileError(_SURFACE_FILE.format(kind="a legacy VTK POLYDATA file"), where=path,
+                                       fix=_SURFACE_FIX)
         if not head.startswith(b"# vtk DataFile"):
             fix = ("rename it to .vtu" if head.lstrip().startswith(b"<") else
                    "give a file written by a VTK writer")
@@ -252,6 +285,7 @@ class XdmfTimeSeries:
                                         where=where, fix="restore the HDF5 file next to the XDMF file") from None
             raise UnreadableFileError(f"cannot read the step's data ({short_text(exc)})", where=where,
                                       fix="check that the HDF5 file is complete (not truncated)") from None
+        _check_field_lengths(len(reader._points), reader.cells, point_data, cell_data, where)
         return key, meshio.Mesh(reader._points, reader.cells, point_data=point_data, cell_data=cell_data)
 
     def step(self, grid: int, where: str, pool=None) -> tuple[Mesh, "StepFields"]:
@@ -273,6 +307,23 @@ class XdmfTimeSeries:
                 pass
 
 
+def _check_field_lengths(n_points: int, cells, point_data: dict, cell_data: dict, where: str) -> None:
+    """Refuse fields whose length does not match the points or the cell blocks (a step written short or long)."""
+    for name, values in point_data.items():
+        if len(values) != n_points:
+            raise FieldShapeError(f"point field '{name}' has {len(values)} values for {n_points} points",
+                                  where=where, fix=_WRITE_AGAIN)
+    sizes = [len(block.data) for block in cells]
+    for name, blocks in cell_data.items():
+        found = [len(b) for b in blocks]
+        if found != sizes:
+            raise FieldShapeError(f"cell field '{name}' has {sum(found)} values for {sum(sizes)} cells "
+                                  f"({sum(found) - sum(sizes):+d})", where=where, fix=_WRITE_AGAIN)
+
+
+_WRITE_AGAIN = "the step was written short or damaged: write it again or remove it from the series"
+
+
 def join_cell_data(mesh: Mesh, cell_data: dict, where: str = "") -> dict:
     """Join meshio's per-block cell data over the analysed blocks of ``mesh``."""
     out = {}
@@ -285,6 +336,10 @@ def join_cell_data(mesh: Mesh, cell_data: dict, where: str = "") -> dict:
         except ValueError:
             raise FieldShapeError(f"cell field '{name}' has blocks of different shapes",
                                   where=where, fix="write the field with one shape in every block") from None
+        if out[name].shape[0] != mesh.n_cells:
+            found = out[name].shape[0]
+            raise FieldShapeError(f"cell field '{name}' has {found} values for {mesh.n_cells} cells "
+                                  f"({found - mesh.n_cells:+d})", where=where, fix=_WRITE_AGAIN)
     return out
 
 
@@ -297,6 +352,7 @@ def mesh_and_fields(raw, where: str, pool=None) -> tuple[Mesh, StepFields]:
     share their corners (:class:`MeshWarning`). The caller keeps the mesh in
     its pool.
     """
+    _check_raw_cells(raw, where)
     try:
         candidate = Mesh(raw.points, raw.cells)
     except UnsupportedMeshError as err:
@@ -307,6 +363,36 @@ def mesh_and_fields(raw, where: str, pool=None) -> tuple[Mesh, StepFields]:
         if mesh is not candidate and pool is not None:
             mesh = pool.match(mesh) or mesh
     return mesh, step_fields(mesh, raw, where)
+
+
+_SOLID = ("tetra", "hexahedron", "wedge", "pyramid", "voxel", "tetra10", "hexahedron20", "hexahedron27",
+          "wedge15", "pyramid13", "polyhedron")
+
+
+def _check_raw_cells(raw, where: str) -> None:
+    """Refuse cells a file stores in a form that reads without error but means something else.
+
+    Corner numbers stored as floating-point numbers are taken only when every one is a whole
+    number (:class:`MeshWarning` says so, with the count); points with two coordinates cannot
+    carry 3D cells.
+    """
+    points = np.asarray(raw.points)
+    solid = sorted({b.type for b in raw.cells if b.type in _SOLID or b.type.startswith("polyhedron")})
+    if points.ndim == 2 and points.shape[1] == 2 and solid:
+        raise UnsupportedMeshError(f"the points have 2 coordinates but the cells are 3D ({', '.join(solid)})",
+                                   where=where, fix="write the points with x, y and z (XDMF GeometryType XYZ)")
+    for block in raw.cells:
+        data = np.asarray(block.data) if not isinstance(block.data, list) else None
+        if data is None or data.dtype.kind != "f":
+            continue
+        whole = np.isfinite(data) & (data == np.round(data))
+        if not whole.all():
+            bad = int(np.count_nonzero(~whole.all(axis=-1))) if data.ndim == 2 else int(np.count_nonzero(~whole))
+            raise UnsupportedMeshError(f"{bad} {block.type} cells have corner point numbers that are not whole "
+                                       "numbers (the cells are stored as floating-point numbers)", where=where,
+                                       fix="write the cells as integers (XDMF Topology DataType=\"Int\")")
+        warnings.warn(MeshWarning(f"the {len(data)} {block.type} cells are stored as floating-point numbers; "
+                                  "read as the whole numbers they hold", where=where), stacklevel=4)
 
 
 def step_fields(mesh: Mesh, raw, where: str, *, field_data: bool = True) -> StepFields:
@@ -343,6 +429,11 @@ def _average_merged(values: np.ndarray, merge: np.ndarray, n: int) -> np.ndarray
 
 def _checked_mesh(mesh: Mesh, raw, where: str) -> Mesh:
     """Check a newly built mesh; merge coincident points."""
+    if mesh.dimension == 2:
+        try:
+            mesh.plane_axes  # a curved surface in 3D (a boundary patch) is no 2D domain
+        except UnsupportedMeshError as err:
+            raise err.with_where(where) from None
     finite = np.isfinite(mesh.points).all(axis=1)
     bad = 0 if finite.all() else int(np.count_nonzero(~finite[mesh.used_points]))
     if bad:

@@ -34,10 +34,12 @@ import numpy as np
 
 from ..errors import InputFileNotFound, PhasegaugeError, SeriesError, SeriesWarning, UnreadableFileError
 from ..model.mesh import Mesh
-from ._formats import TIME_NEEDS_FULL_READ, format_for, peek_time, read_mesh_file, suffix_list
+from ._formats import (TIME_NEEDS_FULL_READ, check_readable, format_for, peek_time, read_mesh_file, stored_time,
+                       suffix_list, surface_file_problem)
 from ._mesh_pool import MeshPool
 from ._meshio_adapter import StepFields, XdmfTimeSeries, mesh_and_fields
-from ._xdmf import grid_time, temporal_grids
+from ._claims import check_hdf5_claims
+from ._xdmf import grid_time, temporal_grids, xdmf_data_files
 
 __all__ = ["Series", "StepInfo", "Step", "open_series", "natural_key", "read_listing",
            "LISTING_SUFFIXES"]
@@ -127,7 +129,7 @@ def read_listing(path: str) -> list[tuple[float, str]]:
     """
     base = os.path.dirname(os.path.abspath(path))
     rows = []
-    with open(path, encoding="utf-8", errors="replace") as handle:
+    with open(path, encoding="utf-8-sig", errors="replace") as handle:
         for number, line in enumerate(handle, start=1):
             text = line.strip()
             if not text or text.startswith("#"):
@@ -138,10 +140,12 @@ def read_listing(path: str) -> list[tuple[float, str]]:
             try:
                 if len(parts) != 2 or not parts[1]:
                     raise ValueError
-                time = float(parts[0])
+                float(parts[0])
             except ValueError:
                 raise SeriesError(f"line {number} is not 'time,path': {text[:60]!r}", where=path,
-                                  fix="write one 'time,path' pair a line") from None
+                                  fix="write one 'time,path' pair a line, the time a number") from None
+            time = stored_time(parts[0], where=f"{path}, line {number}", source="of the listing line",
+                               fix="write one 'time,path' pair a line, the time a finite number")
             rows.append((time, parts[1] if os.path.isabs(parts[1]) else os.path.join(base, parts[1])))
     if not rows:
         raise SeriesError("the listing holds no steps", where=path, fix="add 'time,path' lines")
@@ -234,6 +238,11 @@ class Series:
             if not files:
                 files = step_folder_files(path)
             if not files:
+                surfaces = sorted(f for f in os.listdir(path) if surface_file_problem(f) is not None)
+                if surfaces:
+                    raise SeriesError(f"the folder holds only surface files ({len(surfaces)}, such as "
+                                      f"{surfaces[0]}: boundary patches), no volume mesh", where=path,
+                                      fix="give the folder of the volume (internal) mesh files")
                 raise SeriesError(f"the folder holds no mesh files ({suffix_list()}), nor folders of one "
                                   "mesh file each", where=path,
                                   fix="give a folder of mesh files or of step folders, a mesh file or a step listing")
@@ -250,9 +259,7 @@ class Series:
             steps = self._from_files(files)
             _warn_numbering_gaps(files, path, steps)
             return steps
-        if not os.path.exists(path):
-            raise InputFileNotFound("file not found", where=path,
-                                    fix="check the path (quote globs so the shell does not expand them)")
+        check_readable(path)
         if path.lower().endswith(LISTING_SUFFIXES):
             self.kind = "listing"
             rows = read_listing(path)
@@ -269,7 +276,7 @@ class Series:
                 self.kind = "collection"
                 steps = []
                 for i, grid in enumerate(grids):
-                    t = grid_time(grid)
+                    t = grid_time(grid, where=f"{path}, step {i}")
                     if t is not None:
                         steps.append(StepInfo(i, t, "xdmf", path, grid=i))
                     else:
@@ -279,6 +286,9 @@ class Series:
                                       fix="write at least one step")
                 return steps
         if not _is_mesh_file(path):
+            surface = surface_file_problem(path)
+            if surface is not None:
+                raise surface
             raise UnreadableFileError(
                 f"is neither a mesh file ({suffix_list()}) nor a step listing "
                 f"({', '.join(LISTING_SUFFIXES)})", where=path,
@@ -290,14 +300,18 @@ class Series:
         steps = []
         names = _message_names(files)
         for i, f in enumerate(files):
-            t = peek_time(f)
+            where = f"{names[i] or f}, step {i}"
+            try:
+                t = peek_time(f)
+            except SeriesError as err:
+                raise err.at(where) from None
             if t is TIME_NEEDS_FULL_READ:
                 try:
                     raw = read_mesh_file(f)
                 except PhasegaugeError:  # an unreadable step: its time is unknown; reading it fails later
                     steps.append(StepInfo(i, float("nan"), "unknown", f, name=names[i]))
                     continue
-                t = _time_from_field_data(raw.field_data)
+                t = _time_from_field_data(raw.field_data, where)
             if t is None:
                 steps.append(StepInfo(i, float(i), "index", f, name=names[i]))
             else:
@@ -365,7 +379,9 @@ class Series:
         if info.grid is not None:
             mesh, fields = self._read_collection_step(info)
         else:
-            if not os.path.exists(info.path):
+            if os.path.lexists(info.path):
+                check_readable(info.path, info.where)
+            else:
                 named = f" (named in {os.path.basename(self.path)})" if self.kind == "listing" else ""
                 raise InputFileNotFound(f"the step's file is missing{named}", where=info.where,
                                         fix="restore the file" + (", or remove its line from the listing"
@@ -376,7 +392,7 @@ class Series:
             except PhasegaugeError as err:
                 raise err.at(info.where) from None
             if info.time_origin == "index":
-                t = _time_from_field_data(fields.field_data)
+                t = _time_from_field_data(fields.field_data, info.where)
                 if t is not None:
                     info = dataclasses.replace(info, time=t, time_origin="file")
                     self.steps[index] = info
@@ -390,6 +406,7 @@ class Series:
     def _read_collection_step(self, info: StepInfo):
         reader = self._xdmf_readers.get(info.path)
         if reader is None:
+            check_hdf5_claims(info.path, xdmf_data_files(info.path))
             reader = self._xdmf_readers[info.path] = XdmfTimeSeries(info.path)
         return reader.step(info.grid, info.where, self.mesh_pool)
 
@@ -447,7 +464,44 @@ def numbering_gaps(files: list) -> list:
     return gaps
 
 
+def time_gaps(times) -> tuple[list, float]:
+    """Gaps in a series' own times: ``([(before, after), ...], interval)``.
+
+    The rule of :func:`numbering_gaps`, on the times: the output interval is the smallest step
+    between consecutive (finite, increasing) times, and a gap is a step of a whole multiple (two
+    or more, to a part in a thousand) of it. Solver files numbered by time-step index (0, 13,
+    26, 55, ...) with a steady output interval in time show no gap; irregular output times
+    that are no multiple of the interval are no gap either.
+    """
+    times = np.asarray([t for t in times if np.isfinite(t)], dtype=np.float64)
+    if times.size < 3:
+        return [], float("nan")
+    diffs = np.diff(times)
+    steps = diffs[diffs > 0]
+    if steps.size == 0:
+        return [], float("nan")
+    interval = float(steps.min())
+    ratio = diffs / interval
+    whole = np.abs(ratio - np.round(ratio)) <= 1e-3 * np.maximum(ratio, 1.0)
+    jumps = np.flatnonzero((ratio >= 2 - 1e-3) & whole)
+    return [(float(times[i]), float(times[i + 1])) for i in jumps], interval
+
+
 def _warn_numbering_gaps(files: list, where: str, steps: list) -> None:
+    if steps and all(s.time_origin in ("file", "xdmf", "listing", "unknown") for s in steps) and \
+            any(s.time_origin != "unknown" for s in steps):
+        # the files store their times: those, not the file numbers, say whether outputs are missing
+        known = np.array([s.time for s in steps if np.isfinite(s.time)])
+        if np.any(np.diff(known) <= 0):
+            return  # times out of order: the order is reported (or sorted) instead
+        gaps, interval = time_gaps(known)
+        if gaps:
+            shown = ", ".join(f"{a:g} to {b:g}" for a, b in gaps[:3]) + (
+                f" and {len(gaps) - 3} more" if len(gaps) > 3 else "")
+            warnings.warn(SeriesWarning(f"the step times jump ({shown}) against the series' output interval "
+                                        f"{interval:g}: steps may be missing or the output interval changed",
+                                        where=where), stacklevel=3)
+        return
     gaps = numbering_gaps(files)
     if not gaps:
         return
@@ -461,12 +515,19 @@ def _warn_numbering_gaps(files: list, where: str, steps: list) -> None:
                                 f"changed; {then}", where=where), stacklevel=3)
 
 
-def _time_from_field_data(field_data: dict) -> float | None:
+def _time_from_field_data(field_data: dict, where: str = "") -> float | None:
+    """The time a file stores in its field data (single precision rounded to its digits), or None.
+
+    Raises
+    ------
+    SeriesError
+        The stored time is not a finite number.
+    """
     for name in TIME_ARRAY_NAMES:
         if name in field_data:
             value = np.asarray(field_data[name]).ravel()
-            if value.size >= 1 and np.isfinite(value[0]):
-                return float(value[0])
+            if value.size >= 1:
+                return stored_time(value[0], where=where, source=f"stored in the file's field data ({name})")
     return None
 
 

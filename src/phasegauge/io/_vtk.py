@@ -17,7 +17,8 @@ import warnings
 import numpy as np
 
 from ..errors import UnreadableFileError, short_text
-from ._formats import TIME_NEEDS_FULL_READ, register_format
+from ._claims import check_legacy_claims, check_xml_claims
+from ._formats import TIME_NEEDS_FULL_READ, register_format, stored_time
 from ._meshio_adapter import read_with_meshio
 
 __all__ = ["FORMATS", "read_structured"]
@@ -37,10 +38,15 @@ def peek_legacy_time(path: str):
         return None
     binary = b"\nBINARY" in head[:1024].upper()
     rest = head[match.end():]
+    source = f"stored in the file's field data ({match.group(0).split()[0].decode()})"
     if binary:
         size = 8 if match.group(1) == b"double" else 4
-        return float(np.frombuffer(rest[:size], dtype=">f8" if size == 8 else ">f4")[0])
-    return float(rest.split()[0])
+        return stored_time(np.frombuffer(rest[:size], dtype=">f8" if size == 8 else ">f4")[0],
+                           where=path, source=source)
+    words = rest.split()
+    if match.group(1) == b"float" and words:
+        return stored_time(np.float32(stored_time(words[0], where=path, source=source)), where=path, source=source)
+    return stored_time(words[0] if words else "", where=path, source=source)
 
 
 def peek_xml_time(path: str):
@@ -57,8 +63,12 @@ def peek_xml_time(path: str):
         return None
     tag = match.group(0)
     if b'format="ascii"' in tag:
-        body = head[start + match.end():].split(b"<", 1)[0]
-        return float(body.split()[0])
+        body = head[start + match.end():].split(b"<", 1)[0].split()
+        source = f"stored in the file's field data ({match.group(1).decode()})"
+        value = stored_time(body[0] if body else "", where=path, source=source)
+        if b'type="Float32"' in tag:
+            value = stored_time(np.float32(value), where=path, source=source)
+        return value
     return TIME_NEEDS_FULL_READ
 
 
@@ -132,10 +142,12 @@ def _structured_fallback(path: str):
 
 
 def read_xml_unstructured(path: str):
+    check_xml_claims(path)
     return read_with_meshio(path, "vtu")
 
 
 def read_legacy(path: str):
+    check_legacy_claims(path)
     return read_with_meshio(path, "vtk", fallback=_structured_fallback)
 
 

@@ -12,7 +12,8 @@ import re
 import xml.etree.ElementTree as ET
 
 from ..errors import UnreadableFileError
-from ._formats import register_format
+from ._claims import check_hdf5_claims
+from ._formats import register_format, stored_time
 from ._meshio_adapter import read_with_meshio
 
 __all__ = ["FORMATS", "temporal_grids", "grid_time", "xdmf_data_files", "data_file_names"]
@@ -40,11 +41,18 @@ def temporal_grids(path: str):
     return None
 
 
-def grid_time(grid) -> float | None:
-    """The ``Time`` value of one grid of a collection, or None."""
+def grid_time(grid, where: str = "") -> float | None:
+    """The ``Time`` value of one grid of a collection, or None.
+
+    Raises
+    ------
+    SeriesError
+        A ``Time`` value that is text, empty, NaN or infinite.
+    """
     node = grid.find("Time")
     if node is not None and node.get("Value") is not None:
-        return float(node.get("Value"))
+        return stored_time(node.get("Value"), where=where, source="in the XDMF <Time Value=...>",
+                           fix="write a finite number in the grid's <Time Value=...>")
     return None
 
 
@@ -77,6 +85,7 @@ def xdmf_data_files(path) -> list:
 
 
 def read_xdmf(path: str):
+    check_hdf5_claims(path, xdmf_data_files(path))
     return read_with_meshio(path, "xdmf")
 
 

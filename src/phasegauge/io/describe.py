@@ -124,6 +124,11 @@ def _describe(series, scan: str) -> dict:
     if not mesh.total_measure > 0:
         warnings.warn(MeshWarning(f"the cells have no {word} (total {mesh.total_measure:g}); measure refuses "
                                   "this mesh", where=first.info.where), stacklevel=3)
+    from ..model._overlaps import overlap_problem
+
+    overlap = overlap_problem(mesh) if mesh.total_measure > 0 else None
+    if overlap is not None:
+        warnings.warn(MeshWarning(f"{overlap}; measure refuses this mesh", where=first.info.where), stacklevel=3)
     sizes = mesh.cell_sizes
     from ..model.quasi2d import one_cell_thick
 

@@ -112,7 +112,8 @@ def face_topology(mesh: Mesh) -> dict:
             n, local = len(mesh.blocks[b]), len(local_faces(mesh.blocks[b]))
             ids = group[row_starts[b]:row_starts[b] + local * n].reshape(local, n)
             numbers[b] = np.ascontiguousarray(ids.T)
-    return {"pairs": pairs, "boundary": boundary, "numbers": numbers, "count": int(starts.size)}
+    return {"pairs": pairs, "boundary": boundary, "numbers": numbers, "count": int(starts.size),
+            "crowded": int(np.count_nonzero(sizes > 2))}
 
 
 def grid_face_numbers(mesh: Mesh) -> list | None:

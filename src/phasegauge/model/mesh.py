@@ -159,7 +159,13 @@ class Mesh:
         n_points = self.points.shape[0]
         for block in self.blocks + self.boundary_blocks:
             conn = block.connectivity
-            if conn.size and (conn.min() < 0 or conn.max() >= n_points):
+            if conn.size and conn.min() < 0:
+                negative = int(np.count_nonzero(conn < 0))
+                raise UnsupportedMeshError(
+                    f"{block.cell_type} cells have {negative} negative corner point "
+                    f"number{'s' if negative > 1 else ''} (the lowest {int(conn.min())}); point numbers start at 0",
+                    fix="the file is damaged or was written with another numbering; write it again")
+            if conn.size and conn.max() >= n_points:
                 raise UnsupportedMeshError(
                     f"{block.cell_type} cells refer to point {int(conn.max())} but the mesh has "
                     f"{n_points} points", fix="the file is damaged; write it again")
@@ -270,8 +276,10 @@ class Mesh:
         flat = [ax for ax in range(3) if extent[ax] <= 1e-9 * scale]
         if not flat:
             raise UnsupportedMeshError(
-                "the 2D cells do not lie in a plane normal to x, y or z",
-                fix="write 2D results in a coordinate plane (for example z = 0)")
+                "the 2D cells do not lie in a plane normal to x, y or z: this is a surface in 3D (such as a "
+                "boundary patch), not a volume mesh",
+                fix="give the step's volume (internal) mesh, or write 2D results in a coordinate plane "
+                    "(for example z = 0)")
         normal = flat[-1] if len(flat) > 1 else flat[0]
         if len(flat) > 1:
             normal = 2 if 2 in flat else flat[0]

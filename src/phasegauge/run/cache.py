@@ -68,7 +68,10 @@ class StepCache:
 
         if not os.path.isfile(info.path):
             return None
-        digest = file_sha256(info.path)
+        try:
+            digest = file_sha256(info.path)
+        except OSError:  # a file the user may not read: the step is skipped when it is read
+            return None
         text = f"{digest}|{info.grid}|{self._data_stamp(info)}|{self.options_key}"
         key = hashlib.sha256(text.encode()).hexdigest()[:20]
         return CacheEntry(os.path.join(self.folder, f"step_{info.index:06d}_{key}.pkl"), digest)

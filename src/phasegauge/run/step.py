@@ -22,6 +22,7 @@ from ..errors import (AnalysisError, FieldNotFoundError, InputError, InputFileNo
 from ..model.fields import vector_field
 from ..model.indicator import make_indicator
 from ..model.outline import MeshOutline
+from ..model._overlaps import overlap_problem
 from ._sampling import sample_step
 
 __all__ = ["StepResult", "StepRunner", "analyse_step", "run_step", "STEP_ERRORS"]
@@ -87,6 +88,11 @@ def check_mesh(mesh, where: str, *, reported: set | None = None) -> None:
         raise UnsupportedMeshError(f"the cells have no {word} (total {total:g}): the points coincide or are not "
                                    "finite", where=where, fix="the file is damaged or the mesh collapsed; "
                                    "write the step again")
+    problem = overlap_problem(mesh)
+    if problem is not None:
+        raise UnsupportedMeshError(problem, where=where,
+                                   fix="write each cell once (pieces of a parallel run joined without repeating "
+                                       "their shared cells), or the step's volume mesh alone")
     if reported is not None:
         if mesh.signature in reported:
             return

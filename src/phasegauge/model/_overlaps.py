@@ -1,0 +1,118 @@
+"""Cells that cover the same space twice: repeated cells, faces shared by more than two cells, and
+cells whose measures add up to more than the region their boundary encloses.
+
+Such meshes read without error but count their phase twice where cells overlap (the phase
+volume grows, droplets split). Three checks, each exact or to rounding:
+
+* repeated cells: the same corner set twice in a block (exact, by sorting the corner rows);
+* crowded faces: a face (3D) or edge (2D) that more than two cells have (from the face grouping);
+* covered boundary faces: a face that only one cell has, whose outer side lies inside another
+  cell (triangle and tetrahedron meshes); overlapping cells that share no face are found this way.
+"""
+
+from __future__ import annotations
+
+import numpy as np
+
+from ._grouping import group_columns, sort_small_rows
+
+__all__ = ["cell_overlaps", "overlap_problem"]
+
+
+def cell_overlaps(mesh) -> dict:
+    """How far the cells of ``mesh`` cover space twice (kept with ``mesh.memo``).
+
+    Returns
+    -------
+    dict
+        ``duplicate_cells`` (int: cells whose corner set an earlier cell of the block has),
+        ``crowded_faces`` (int: faces or edges of more than two cells), ``covered_boundary_faces``
+        (int: faces of one cell whose outer side lies inside another cell).
+    """
+    return mesh.memo("cell_overlaps", lambda: _overlaps(mesh))
+
+
+def overlap_problem(mesh) -> str | None:
+    """What makes the cells of ``mesh`` cover space twice, with the count, or None.
+
+    Repeated cells and overlapping cells count their phase twice (the phase volume grows, droplets
+    split), so a run refuses such a mesh rather than measure it.
+    """
+    found = cell_overlaps(mesh)
+    if found["duplicate_cells"]:
+        n = found["duplicate_cells"]
+        return (f"{n} cell{'s' if n > 1 else ''} repeat{'' if n > 1 else 's'} the corners of another cell (stored "
+                f"twice), so {'their' if n > 1 else 'its'} phase would count twice")
+    if found["crowded_faces"]:
+        n = found["crowded_faces"]
+        face = "edge" if mesh.dimension == 2 else "face"
+        return (f"{n} {face}{'s are' if n > 1 else ' is'} shared by more than two cells, so cells overlap and "
+                f"their phase would count twice")
+    if found["covered_boundary_faces"]:
+        n = found["covered_boundary_faces"]
+        face = "edge" if mesh.dimension == 2 else "face"
+        return (f"{n} boundary {face}{'s lie' if n > 1 else ' lies'} inside other cells, so cells overlap and "
+                "their phase would count twice")
+    return None
+
+
+def _overlaps(mesh) -> dict:
+    duplicates = 0
+    for block in mesh.blocks:
+        if len(block) < 2:
+            continue
+        rows = sort_small_rows(np.asarray(block.connectivity))
+        _, starts = group_columns([rows[:, j] for j in range(rows.shape[1])])
+        duplicates += len(block) - int(starts.size)
+    regular = mesh.regular_grid is not None
+    crowded = 0 if regular else mesh._face_topology["crowded"]
+    covered = 0 if regular or duplicates or crowded else _covered_boundary_faces(mesh)
+    return {"duplicate_cells": duplicates, "crowded_faces": crowded, "covered_boundary_faces": covered}
+
+
+def _covered_boundary_faces(mesh, neighbours: int = 8) -> int:
+    """Boundary faces (edges in 2D) whose outer side lies inside another cell: cells that overlap
+    without sharing a face. Simplicial meshes (triangles, tetrahedra) only; others give 0.
+
+    A point of each boundary face is moved a little outward (away from the cell that owns it) and
+    tested against the few cells whose centroids are nearest (barycentric coordinates, exact
+    for simplices).
+    """
+    from scipy.spatial import cKDTree
+
+    if any(b.cell_type not in ("triangle", "tetra") for b in mesh.blocks):
+        return 0
+    corners, owners = mesh.boundary_faces
+    if corners.shape[0] == 0:
+        return 0
+    d = mesh.dimension
+    x = mesh.coordinates
+    centroids = mesh.cell_centroids
+    width = d  # corners of a face: d (edge: 2, triangle: 3); 3D rows are padded with -1 in front
+    face = x[corners[:, corners.shape[1] - width:]]
+    # a point of the face off its middle (uneven weights), so that faces of a symmetric layout
+    # do not send every probe along another cell's face
+    weights = np.array([0.41, 0.59]) if width == 2 else np.array([0.23, 0.33, 0.44])
+    middle = np.einsum("k,nkd->nd", weights, face)
+    size = mesh.cell_sizes[owners]
+    away = middle - centroids[owners]
+    away /= np.maximum(np.linalg.norm(away, axis=1), 1e-300)[:, None]
+    probe = middle + 1e-3 * size[:, None] * away
+    simplices = np.concatenate([np.asarray(b.connectivity) for b in mesh.blocks])
+    k = min(neighbours, len(simplices))
+    _, near = cKDTree(centroids).query(probe, k=k)
+    near = near.reshape(len(probe), k)
+    inside = np.zeros(len(probe), dtype=bool)
+    for j in range(k):
+        cell = near[:, j]
+        verts = x[simplices[cell]]  # (n, d + 1, d)
+        base = verts[:, 1:, :] - verts[:, :1, :]
+        det = np.linalg.det(base)
+        ok = np.abs(det) > 1e-14 * np.maximum(size[:] ** d, 1e-300)
+        lam = np.zeros((len(probe), d))
+        lam[ok] = np.linalg.solve(np.transpose(base[ok], (0, 2, 1)), (probe - verts[:, 0, :])[ok][..., None])[..., 0]
+        lam0 = 1.0 - lam.sum(axis=1)
+        tol = 1e-9
+        hit = ok & (lam0 > tol) & np.all(lam > tol, axis=1) & (cell != owners)
+        inside |= hit
+    return int(np.count_nonzero(inside))
