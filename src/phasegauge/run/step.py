@@ -197,9 +197,12 @@ def analyse_step(step, options, *, contour_dir: str | None = None, reported_mesh
 
             write_contour(contour, os.path.join(contour_dir, f"interface_{step.index:06d}.vtu"))
     if "droplets" in options.analyses:
+        # droplets measured between the measured bulk values of the two phases (as the widths)
+        low, high, tail = interface.bulk_plateaus(ind.point, options.level)
         found = droplets_mod.label_droplets(
             mesh, ind.cell, level=options.level, connectivity=options.connectivity, periodic=tuple(options.periodic),
-            velocity=u_cell, interface_cells=contour.cells, interface_sizes=contour.element_sizes)
+            velocity=u_cell, interface_cells=contour.cells, interface_sizes=contour.element_sizes,
+            bulk=(low, high), band_floor=max(1e-3, tail) if (low, high) != (0.0, 1.0) else 1e-3)
         table = found.table
         m["droplet_count"] = int(found.count)
         m["under_resolved_droplets"] = int(table["under_resolved"].sum()) if len(table) else 0
