@@ -34,7 +34,7 @@ class Finding:
     ----------
     kind : str
         ``interface_widening``, ``phase_volume_drift``, ``open_boundary``,
-        ``indicator_overshoot``, ``interface_under_resolved``,
+        ``indicator_overshoot``, ``bulk_plateaus`` (bulk off 0 and 1 read as physics), ``interface_under_resolved``,
         ``droplets_under_resolved``, ``steps_skipped``, or ``warning`` (a
         warning of the steps or the series, repeats collapsed).
     severity : {'warning', 'note'}
@@ -358,7 +358,10 @@ def findings(steps, droplets, audit: dict, options, skipped: list) -> list:
     if "overshoot_volume" in steps:
         worst = _worst(steps, "overshoot_volume")
         tolerance = ROUNDOFF_VOLUME * domain
-        if worst > tolerance:
+        plateaus = _bulk_plateaus(steps) if worst > tolerance else None
+        if plateaus is not None:
+            found.append(plateaus)
+        elif worst > tolerance:
             c_min, c_max = float(np.nanmin(steps["c_min"])), float(np.nanmax(steps["c_max"]))
             found.append(Finding("indicator_overshoot", "warning",
                                  f"indicator leaves [0, 1]: overshoot volume up to {worst:.3g} "
@@ -383,6 +386,34 @@ def findings(steps, droplets, audit: dict, options, skipped: list) -> list:
         found.append(Finding("steps_skipped", "warning", f"{len(skipped)} step(s) skipped: " + "; ".join(skipped[:3]),
                              {"count": len(skipped)}))
     return found
+
+
+def _bulk_plateaus(steps):
+    """A note on bulk plateaus off 0 and 1 that account for c leaving [0, 1], or None.
+
+    A diffuse-interface (Cahn-Hilliard) bulk sits off the wells by the Gibbs-Thomson shift of
+    its curved interfaces; c beyond [0, 1] is then physics as long as it stays within the
+    plateaus' range widened by the shift itself (twice the shift from the well, at least 1e-3).
+    Values further out are overshoot (None: the caller warns).
+    """
+    if "bulk_c_low" not in steps or "c_min" not in steps or not len(steps):
+        return None
+    lows, highs = steps["bulk_c_low"].to_numpy(float), steps["bulk_c_high"].to_numpy(float)
+    if not (np.isfinite(lows).any() and np.isfinite(highs).any()):
+        return None
+    low, high = float(np.nanmin(lows)), float(np.nanmax(highs))
+    if low == 0.0 and high == 1.0:
+        return None
+    c_min, c_max = float(np.nanmin(steps["c_min"])), float(np.nanmax(steps["c_max"]))
+    floor, ceiling = min(0.0, low - max(-low, 1e-3)), max(1.0, high + max(high - 1.0, 1e-3))
+    if c_min < floor or c_max > ceiling:
+        return None
+    return Finding("bulk_plateaus", "note",
+                   f"the bulk of the phases sits off 0 and 1 (c = {low:.4g} and {high:.4g}, shift {low:+.2g} and "
+                   f"{high - 1:+.2g}): a diffuse-interface model's bulk, moved by the Gibbs-Thomson shift of "
+                   f"curved interfaces, is physics, not overshoot; c stays within {c_min:.4g} to {c_max:.4g}, "
+                   "inside the plateaus' range", {"bulk_c_low": low, "bulk_c_high": high, "c_min": c_min,
+                                                  "c_max": c_max, "shift_low": low, "shift_high": high - 1.0})
 
 
 def _number(value):

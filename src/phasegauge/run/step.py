@@ -204,6 +204,7 @@ def analyse_step(step, options, *, contour_dir: str | None = None, reported_mesh
             velocity=u_cell, interface_cells=contour.cells, interface_sizes=contour.element_sizes,
             bulk=(low, high), band_floor=max(1e-3, tail) if (low, high) != (0.0, 1.0) else 1e-3)
         table = found.table
+        _warn_periodic_look(mesh, ind.point, options, step.info.where)
         m["droplet_count"] = int(found.count)
         m["under_resolved_droplets"] = int(table["under_resolved"].sum()) if len(table) else 0
         labelled = np.flatnonzero(found.labels >= 0)
@@ -231,6 +232,18 @@ def analyse_step(step, options, *, contour_dir: str | None = None, reported_mesh
     result.metrics = m
     result.contour = contour
     return result
+
+
+def _warn_periodic_look(mesh, c_point, options, where: str) -> None:
+    """One warning (collapsed over steps) when the field looks periodic along an axis not measured so."""
+    from ..analysis.droplets import looks_periodic
+
+    axes = looks_periodic(mesh, c_point, periodic=tuple(options.periodic))
+    if axes:
+        names = ",".join(axes)
+        warnings.warn(MeshWarning(f"the field on opposite boundaries along {names} matches to round-off: the run "
+                                  f"looks periodic, and droplets crossing the boundary are counted twice; "
+                                  f"give --periodic {names} if it is", where=where), stacklevel=2)
 
 
 # ------------------------------------------------------------------ the unit of parallel work
