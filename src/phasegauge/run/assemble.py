@@ -35,6 +35,7 @@ class Finding:
     kind : str
         ``interface_widening``, ``phase_volume_drift``, ``open_boundary``,
         ``indicator_overshoot``, ``bulk_plateaus`` (bulk off 0 and 1 read as physics), ``interface_under_resolved``,
+        ``width_cell_data_bias``,
         ``droplets_under_resolved``, ``steps_skipped``, or ``warning`` (a
         warning of the steps or the series, repeats collapsed).
     severity : {'warning', 'note'}
@@ -308,6 +309,9 @@ def _sample_tables(done, options):
 #: through a solver and a file keeps ~1e-16 per cell; 1e-9 leaves room for float32 output and sums)
 ROUNDOFF_VOLUME = 1e-9
 
+#: widths are compared within this (relative): the expected cell-data bias is flagged above it
+WIDTH_TOLERANCE = 0.03
+
 
 def _worst(steps, column, how=np.nanmax) -> float:
     values = np.abs(steps[column].to_numpy(dtype=float)) if column in steps and len(steps) else np.zeros(0)
@@ -376,6 +380,14 @@ def findings(steps, droplets, audit: dict, options, skipped: list) -> list:
             found.append(Finding("interface_under_resolved", "warning",
                                  f"diffuse interface under-resolved: up to {100 * worst:.3g} % of it has fewer than "
                                  "4 cells across 0.1 < c < 0.9 (common practice)", {"fraction": worst, "threshold": 0.1}))
+    if "width_cell_data_bias" in steps:
+        worst = _worst(steps, "width_cell_data_bias")
+        if worst > WIDTH_TOLERANCE:
+            found.append(Finding("width_cell_data_bias", "warning",
+                                 f"widths on point values rebuilt from cell data read up to {100 * worst:.2g} % high "
+                                 "(0.063 (h / eps)^2: too few cells across the interface); width_threshold_free "
+                                 "integrates the cell values and carries about a fifth of it",
+                                 {"bias": worst, "tolerance": WIDTH_TOLERANCE}))
     if len(droplets) and "under_resolved" in droplets:
         n = int(droplets["under_resolved"].sum())
         if n:
