@@ -35,7 +35,7 @@ class Finding:
     kind : str
         ``interface_widening``, ``phase_volume_drift``, ``open_boundary``,
         ``indicator_overshoot``, ``bulk_plateaus`` (bulk off 0 and 1 read as physics), ``interface_under_resolved``,
-        ``width_cell_data_bias``,
+        ``width_cell_data_bias``, ``free_energy_increase``,
         ``droplets_under_resolved``, ``steps_skipped``, or ``warning`` (a
         warning of the steps or the series, repeats collapsed).
     severity : {'warning', 'note'}
@@ -388,6 +388,17 @@ def findings(steps, droplets, audit: dict, options, skipped: list) -> list:
                                  "(0.063 (h / eps)^2: too few cells across the interface); width_threshold_free "
                                  "integrates the cell values and carries about a fifth of it",
                                  {"bias": worst, "tolerance": WIDTH_TOLERANCE}))
+    if "free_energy" in steps and len(steps) > 1:
+        energy = steps["free_energy"].to_numpy(dtype=float)
+        rise = np.diff(energy)
+        floor = ROUNDOFF_VOLUME * max(float(np.nanmax(np.abs(energy))), 1e-300)
+        if np.nanmax(np.append(rise, -np.inf)) > floor:
+            i = int(np.nanargmax(rise))
+            found.append(Finding("free_energy_increase", "warning",
+                                 f"the free energy increases between steps ({np.count_nonzero(rise > floor)} times, "
+                                 f"most by {rise[i]:.3g} after step {int(steps['step'].iat[i])}): a relaxing "
+                                 "phase-field run only lowers it", {"largest_increase": float(rise[i]),
+                                                                     "tolerance": floor}))
     if len(droplets) and "under_resolved" in droplets:
         n = int(droplets["under_resolved"].sum())
         if n:

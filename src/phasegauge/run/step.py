@@ -228,10 +228,23 @@ def analyse_step(step, options, *, contour_dir: str | None = None, reported_mesh
             profile.insert(0, "time", step.time)
             profile.insert(0, "step", step.index)
             result.profile = profile
+    if getattr(options, "free_energy", None) is not None:
+        m.update(_equilibrium(mesh, ind, options, m.get("interface_size")))
     m["nonfinite_values"] = int(ind.nonfinite)
     result.metrics = m
     result.contour = contour
     return result
+
+
+def _equilibrium(mesh, ind, options, interface_size) -> dict:
+    """Chemical potential spread, free energy and tension of the field in the model's own variable."""
+    from ..analysis.thermo import equilibrium_metrics
+
+    lo, hi = ind.value_range
+    c = ind.cell if ind.phase == "upper" else 1.0 - ind.cell
+    field = lo + (hi - lo) * c  # the field as written (the indicator maps lo -> 0, hi -> 1)
+    return equilibrium_metrics(mesh, field, options.free_energy, kappa=options.free_energy.kappa,
+                               periodic=tuple(options.periodic), interface_size=interface_size)
 
 
 def _warn_periodic_look(mesh, c_point, options, where: str) -> None:
