@@ -35,7 +35,7 @@ class Finding:
     kind : str
         ``interface_widening``, ``phase_volume_drift``, ``open_boundary``,
         ``indicator_overshoot``, ``bulk_plateaus`` (bulk off 0 and 1 read as physics), ``interface_under_resolved``,
-        ``width_cell_data_bias``, ``free_energy_increase``,
+        ``width_cell_data_bias``, ``free_energy_increase``, ``coarsening``,
         ``droplets_under_resolved``, ``steps_skipped``, or ``warning`` (a
         warning of the steps or the series, repeats collapsed).
     severity : {'warning', 'note'}
@@ -388,6 +388,17 @@ def findings(steps, droplets, audit: dict, options, skipped: list) -> list:
                                  "(0.063 (h / eps)^2: too few cells across the interface); width_threshold_free "
                                  "integrates the cell values and carries about a fifth of it",
                                  {"bias": worst, "tolerance": WIDTH_TOLERANCE}))
+    if "coarsening_length" in steps and len(steps) > 2:
+        from ..analysis.mixing import coarsening_exponent
+
+        fit = coarsening_exponent(steps["time"], steps["coarsening_length"])
+        if np.isfinite(fit["exponent"]):
+            err = fit["exponent_stderr"]
+            found.append(Finding("coarsening", "note",
+                                 f"the pattern coarsens as L ~ t^n with n = {fit['exponent']:.3g}"
+                                 + (f" ± {err:.2g}" if np.isfinite(err) else "")
+                                 + f" over {fit['points']} steps (diffusive coarsening: 1/3, Lifshitz & Slyozov 1961)",
+                                 fit))
     if "free_energy" in steps and len(steps) > 1:
         energy = steps["free_energy"].to_numpy(dtype=float)
         rise = np.diff(energy)

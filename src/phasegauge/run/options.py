@@ -85,6 +85,9 @@ class MeasureOptions:
         A model file (or model) of the double well and its gradient coefficient kappa, in the
         field's own variable: each step then gets the chemical potential's spread, the free
         energy and the interfacial tension (regular grids).
+    coarsening : bool
+        The characteristic length of the pattern per step (``coarsening_length``, first moment
+        of the structure factor) and the fitted exponent of L ~ t^n.
     probes : tuple of (name, x, y, z)
         Points where the field and c are kept at every step (``probes.csv``).
     lines : tuple of (name, x0, y0, z0, x1, y1, z1, points)
@@ -117,6 +120,7 @@ class MeasureOptions:
     sort_by_time: bool = False
     keep_3d: bool = False
     free_energy: object = None
+    coarsening: bool = False
 
     probes: tuple = ()
     lines: tuple = ()

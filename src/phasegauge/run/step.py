@@ -228,6 +228,8 @@ def analyse_step(step, options, *, contour_dir: str | None = None, reported_mesh
             profile.insert(0, "time", step.time)
             profile.insert(0, "step", step.index)
             result.profile = profile
+    if getattr(options, "coarsening", False):
+        m["coarsening_length"] = mixing.coarsening_length(mesh, ind.cell)
     if getattr(options, "free_energy", None) is not None:
         m.update(_equilibrium(mesh, ind, options, m.get("interface_size")))
     m["nonfinite_values"] = int(ind.nonfinite)
