@@ -142,6 +142,7 @@ def _describe(series, scan: str) -> dict:
         "dimension": int(mesh.dimension),
         "quasi_2d": None if flat is None else flat.record(),
         "cells_read_as": mesh.memo("convex_point_sets", lambda: None, keep=False),
+        "listing_file": getattr(series, "listing_file", None),
         "bounds": mesh.bounds.tolist(),
         "total_measure": float(mesh.total_measure),
         "regular_grid": (list(mesh.regular_grid.cell_shape) if mesh.regular_grid is not None else None),
@@ -214,6 +215,9 @@ def format_description(desc: dict) -> str:
              f"mesh        {desc['dimension']}D, {desc['points']} points, {desc['cells']} cells"
              + (" (mesh changes between steps)" if desc["mesh_changes"] else ""),
              "cell types  " + ", ".join(f"{k} {v}" for k, v in desc["cell_types"].items())]
+    if desc.get("listing_file"):
+        lines.append(f"listing     the folder's step listing {os.path.basename(desc['listing_file'])} gives the "
+                     "steps' order and times")
     if desc.get("cells_read_as"):
         lines.append(f"read as     {desc['cells_read_as']}")
     if desc.get("quasi_2d"):
