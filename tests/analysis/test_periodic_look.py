@@ -41,3 +41,11 @@ def test_measure_without_periodic_warns_once(tmp_path):
         measure(str(folder), field="c")
     texts = [str(w.message) for w in caught if "looks periodic" in str(w.message)]
     assert len(texts) == 1 and "--periodic x,y" in texts[0]
+
+
+def test_layered_field_is_not_taken_for_periodic():
+    # a flat free surface in a tank: c depends on y only, so the two x walls match
+    mesh = grid_mesh((32, 32))
+    y = mesh.points[:, 1]
+    layered = 0.5 * (1 + np.tanh((0.4 - y) / 0.03))
+    assert looks_periodic(mesh, layered) == []

@@ -41,7 +41,18 @@ def _boundary_point_pairs(mesh: Mesh, axis: int):
     order_hi = np.lexsort(key_hi.T[::-1])
     if not np.array_equal(key_lo[order_lo], key_hi[order_hi]):
         return None
-    return used[low[order_lo]], used[high[order_hi]]
+    # the next plane inside the low boundary, paired the same way (None when the mesh has no
+    # such plane: an unstructured mesh)
+    inner = None
+    coords = np.unique(points[:, axis])
+    if coords.size > 2:
+        nxt = np.flatnonzero(np.abs(points[:, axis] - coords[1]) <= tol)
+        if len(nxt) == len(low):
+            key_in = np.round(points[nxt][:, others] / (1e3 * tol)).astype(np.int64)
+            order_in = np.lexsort(key_in.T[::-1])
+            if np.array_equal(key_in[order_in], key_lo[order_lo]):
+                inner = used[nxt[order_in]]
+    return used[low[order_lo]], used[high[order_hi]], inner
 
 
 def looks_periodic(mesh: Mesh, c_point, *, periodic=()) -> list:
@@ -61,7 +72,9 @@ def looks_periodic(mesh: Mesh, c_point, *, periodic=()) -> list:
         Axis names (``'x'``, ``'y'``, ``'z'``) whose two boundary planes hold the same points
         (paired by their other coordinates) with values equal within ``ROUNDOFF`` of their
         spread, the values varying by more than ``MIN_VARIATION`` along the plane (a uniform
-        matrix on both sides proves nothing).
+        matrix on both sides proves nothing) and, where the mesh has a next plane of points
+        inside, across the boundary too (a field layered along the boundary, or mirrored at a
+        wall, matches on both sides without being periodic).
     """
     c = np.asarray(c_point, dtype=np.float64)
     found = []
@@ -76,6 +89,9 @@ def looks_periodic(mesh: Mesh, c_point, *, periodic=()) -> list:
         if not (np.isfinite(a).all() and np.isfinite(b).all()):
             continue
         spread = float(max(np.ptp(a), np.ptp(b)))
-        if spread > MIN_VARIATION and float(np.max(np.abs(a - b))) <= ROUNDOFF * spread:
-            found.append(name)
+        if not (spread > MIN_VARIATION and float(np.max(np.abs(a - b))) <= ROUNDOFF * spread):
+            continue
+        if pairs[2] is not None and float(np.max(np.abs(c[pairs[2]] - a))) <= MIN_VARIATION:
+            continue  # nothing changes across the boundary (a layered field, a mirror wall): no sign
+        found.append(name)
     return found

@@ -204,7 +204,8 @@ def analyse_step(step, options, *, contour_dir: str | None = None, reported_mesh
             velocity=u_cell, interface_cells=contour.cells, interface_sizes=contour.element_sizes,
             bulk=(low, high), band_floor=max(1e-3, tail) if (low, high) != (0.0, 1.0) else 1e-3)
         table = found.table
-        _warn_periodic_look(mesh, ind.point, options, step.info.where)
+        if ind.location == "point":  # points written on both ends of a period (cell data cannot tell)
+            _warn_periodic_look(mesh, ind.point, options, step.info.where)
         m["droplet_count"] = int(found.count)
         m["under_resolved_droplets"] = int(table["under_resolved"].sum()) if len(table) else 0
         labelled = np.flatnonzero(found.labels >= 0)
