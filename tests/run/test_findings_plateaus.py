@@ -37,3 +37,20 @@ def test_shifted_bulk_is_physics_and_values_beyond_it_overshoot(tmp_path, spike,
         assert note.severity == "note" and "Gibbs-Thomson" in note.text
         assert note.figures["bulk_c_high"] == pytest.approx((1.018 + 1) / 2, abs=1e-3)
         assert note.figures["bulk_c_low"] == pytest.approx((-0.980 + 1) / 2, abs=1e-3)
+
+
+def test_expected_shift_from_the_free_energy(tmp_path):
+    """The note names the linearised Gibbs-Thomson shift of the double well (Cahn & Hilliard 1958):
+    sigma = (2 sqrt2 / 3) sqrt(kappa beta) for (beta/4)(phi^2 - 1)^2, mu = sigma / R in 2D
+    (two phases 2 apart: mu = sigma / (2 R)), shift = mu / f''(1) = mu / (2 beta), in c: / 2."""
+    beta, kappa = 1.0, 2e-4
+    model = tmp_path / "well.toml"
+    model.write_text(f'[model]\nkind = "double-well"\nlean = -1.0\nrich = 1.0\nheight = {beta / 4}\n'
+                     f"kappa = {kappa}\n")
+    result = measure(_series(tmp_path / "run"), field="phi", value_range=(-1, 1), free_energy=str(model))
+    note = next(f for f in result.findings if f.kind == "bulk_plateaus")
+    radius = 0.5 * result.droplets["equivalent_diameter"].iloc[-1]
+    sigma = 2 * np.sqrt(2) / 3 * np.sqrt(kappa * beta)
+    expected = sigma / (2 * radius) / (2 * beta) / 2
+    assert note.figures["expected_shift"] == pytest.approx(expected, rel=1e-9)
+    assert "Gibbs-Thomson shift for the largest drop" in note.text

@@ -362,7 +362,7 @@ def findings(steps, droplets, audit: dict, options, skipped: list) -> list:
     if "overshoot_volume" in steps:
         worst = _worst(steps, "overshoot_volume")
         tolerance = ROUNDOFF_VOLUME * domain
-        plateaus = _bulk_plateaus(steps) if worst > tolerance else None
+        plateaus = _bulk_plateaus(steps, droplets, options) if worst > tolerance else None
         if plateaus is not None:
             found.append(plateaus)
         elif worst > tolerance:
@@ -422,7 +422,7 @@ def findings(steps, droplets, audit: dict, options, skipped: list) -> list:
     return found
 
 
-def _bulk_plateaus(steps):
+def _bulk_plateaus(steps, droplets=None, options=None):
     """A note on bulk plateaus off 0 and 1 that account for c leaving [0, 1], or None.
 
     A diffuse-interface (Cahn-Hilliard) bulk sits off the wells by the Gibbs-Thomson shift of
@@ -442,12 +442,41 @@ def _bulk_plateaus(steps):
     floor, ceiling = min(0.0, low - max(-low, 1e-3)), max(1.0, high + max(high - 1.0, 1e-3))
     if c_min < floor or c_max > ceiling:
         return None
+    figures = {"bulk_c_low": low, "bulk_c_high": high, "c_min": c_min, "c_max": c_max,
+               "shift_low": low, "shift_high": high - 1.0}
+    expected = _expected_shift(steps, droplets, options)
+    words = ""
+    if expected is not None:
+        figures["expected_shift"] = expected
+        words = f" (the free energy's Gibbs-Thomson shift for the largest drop at the last step: {expected:+.2g})"
     return Finding("bulk_plateaus", "note",
                    f"the bulk of the phases sits off 0 and 1 (c = {low:.4g} and {high:.4g}, shift {low:+.2g} and "
-                   f"{high - 1:+.2g}): a diffuse-interface model's bulk, moved by the Gibbs-Thomson shift of "
+                   f"{high - 1:+.2g}){words}: a diffuse-interface model's bulk, moved by the Gibbs-Thomson shift of "
                    f"curved interfaces, is physics, not overshoot; c stays within {c_min:.4g} to {c_max:.4g}, "
-                   "inside the plateaus' range", {"bulk_c_low": low, "bulk_c_high": high, "c_min": c_min,
-                                                  "c_max": c_max, "shift_low": low, "shift_high": high - 1.0})
+                   "inside the plateaus' range", figures)
+
+
+def _expected_shift(steps, droplets, options):
+    """Gibbs-Thomson shift of the bulk in c for the largest drop of the last step, or None.
+
+    For the double well h (phi - lean)^2 (phi - rich)^2 with gradient coefficient kappa:
+    sigma = (rich - lean)^3 sqrt(2 kappa h) / 6, and a drop of radius R raises the chemical
+    potential of both bulks by mu = (d - 1) sigma / (R (rich - lean)), which moves each bulk by
+    mu / f'' with f'' = 2 h (rich - lean)^2 at the wells (Cahn & Hilliard 1958; linearised).
+    """
+    model = getattr(options, "free_energy", None)
+    if model is None or droplets is None or not len(droplets) or "equivalent_diameter" not in droplets:
+        return None
+    last = droplets[droplets["step"] == droplets["step"].max()]
+    radius = 0.5 * float(np.nanmax(last["equivalent_diameter"]))
+    if not radius > 0:
+        return None
+    dim = 2 if np.isfinite(last["circularity"]).any() else 3
+    gap = model.rich - model.lean
+    sigma = gap ** 3 * np.sqrt(2.0 * model.kappa * model.height) / 6.0
+    mu = (dim - 1) * sigma / (radius * gap)
+    lo, hi = options.value_range
+    return float(mu / (2.0 * model.height * gap ** 2) / (hi - lo))
 
 
 def _number(value):
