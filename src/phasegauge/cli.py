@@ -262,11 +262,17 @@ def _add(options):
 @click.option("--measured", "measured_file", default=None,
               help="CSV of measured values, 'x,y[,z],value[,time][,uncertainty]' (validation.csv).")
 @_add(_mixture_options)
+@click.option("--free-energy", "free_energy", default=None,
+              help="Model file of the double well with kappa, in the field's own variable: chemical potential "
+                   "spread, free energy and interfacial tension per step (regular grids).")
+@click.option("--coarsening", is_flag=True,
+              help="Characteristic length of the pattern per step (structure factor) and the fitted L ~ t^n.")
 def measure(path, field, value_range, phase, level, velocity, field_location, sort_by_time, out, analyses,
             adjacency, periodic,
             ignore_remerge, densities, diffusivity, box, section_axis, section_count, section_at,
             mixing_target, segregation_scale, drift_tolerance, workers, scheduler, resume, overwrite, strict, keep_3d,
-            no_contours, snapshots, quiet, probe_file, line_file, measured_file, **mixture):
+            no_contours, snapshots, quiet, probe_file, line_file, measured_file, free_energy=None, coarsening=False,
+            **mixture):
     """Measure interface, droplets, mixing and conservation on every step of PATH.
 
     PATH is a mesh file, an XDMF time series, a folder of numbered files, a
@@ -284,7 +290,7 @@ def measure(path, field, value_range, phase, level, velocity, field_location, so
         section_positions=_floats(section_at, "--section-at"), mixing_target=mixing_target,
         segregation_scale=segregation_scale,
         drift_tolerance=drift_tolerance, strict=strict, field_location=field_location or "auto",
-        sort_by_time=sort_by_time, keep_3d=keep_3d,
+        sort_by_time=sort_by_time, keep_3d=keep_3d, free_energy=free_energy, coarsening=coarsening,
         **_point_options(probe_file, line_file, measured_file), **_mixture_values(**mixture))
     result = run_measure(path, options=options, out=out, workers=workers, scheduler=scheduler,
                          overwrite=overwrite, resume=resume, progress=None if not quiet else False,

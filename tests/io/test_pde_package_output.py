@@ -65,10 +65,12 @@ def _quiet():
 
 def test_the_files_hold_their_own_time_or_none(pde_run):
     folder, fmt = pde_run
-    series = Series(folder)  # the folder alone: the files' own times (or the step index)
+    series = Series(str(folder / f"ch_*.{fmt}"))  # the files alone: their own times (or the step index)
     expected = [float(i) for i in ITERATIONS] if fmt == "vtk" else [0.0, 1.0, 2.0]
     assert series.times.tolist() == expected
     assert series.time_origins == (["file"] if fmt == "vtk" else ["index"])
+    # the folder holds the listing beside the files: it is used (issue 22)
+    assert Series(folder).times.tolist() == LISTING_TIMES
 
 
 def test_the_listing_wins_over_the_files_own_times(pde_run):

@@ -240,7 +240,7 @@ def _on_mesh(mesh: Mesh, near: _NearCells, local_values: np.ndarray) -> np.ndarr
 # --------------------------------------------------------------------------- public
 def label_droplets(mesh: Mesh, c_cell, *, level: float = 0.5, connectivity: str = "face",
                    periodic=(), velocity=None, interface_cells=None, interface_sizes=None,
-                   band_floor: float = 1e-3, resolution_cells: float = 2.0) -> DropletLabels:
+                   band_floor: float = 1e-3, resolution_cells: float = 2.0, bulk=None) -> DropletLabels:
     """Label the droplets (connected regions of ``c > level``) and measure each one.
 
     Parameters
@@ -272,6 +272,13 @@ def label_droplets(mesh: Mesh, c_cell, *, level: float = 0.5, connectivity: str 
     resolution_cells : float
         ``under_resolved`` when the equivalent radius is below this many local
         cell sizes (2 after Hendrickson, Weymouth & Yue 2020).
+    bulk : (float, float), optional
+        The measured bulk values of the two phases (``bulk_plateaus`` of the
+        interface analysis). Every droplet is then measured on c rescaled
+        between them, (c - low) / (high - low), with ``level`` and
+        ``band_floor`` read on the same scale: a matrix whose bulk sits off 0
+        (a Cahn-Hilliard run) adds nothing to a droplet's volume, and a
+        droplet's inside counts fully though its bulk sits off 1.
 
     Returns
     -------
@@ -353,6 +360,9 @@ def label_droplets(mesh: Mesh, c_cell, *, level: float = 0.5, connectivity: str 
     level, band_floor = _check_options(level, connectivity, band_floor, interface_cells, interface_sizes)
     names, axes = _normalize_periodic(mesh, periodic)
     c = cell_values(mesh, c_cell, "c_cell")
+    given_level = level
+    if bulk is not None:
+        c, level = _between_plateaus(c, level, bulk)
     vel = None if velocity is None else vector_values(mesh, velocity, "velocity", "cell")[0]
     icells, isizes = _contour_arrays(mesh, interface_cells, interface_sizes)
 
@@ -392,4 +402,20 @@ def label_droplets(mesh: Mesh, c_cell, *, level: float = 0.5, connectivity: str 
     table = droplet_table(mesh, columns, centroid=centroid, bmin=bmin, bmax=bmax,
                           velocity_mean=mean_velocity(mesh, vel, g, w, member_cells, n_drop))
     return DropletLabels(labels=labels_out, shared_labels=shared_out,
-                         table=table, weights=weights, level=level, periodic=names)
+                         table=table, weights=weights, level=given_level, periodic=names)
+
+
+def _between_plateaus(c, level, bulk):
+    """c and the level rescaled between the bulk values ``(low, high)`` (unchanged for 0 and 1)."""
+    try:
+        low, high = (float(v) for v in bulk)
+    except (TypeError, ValueError):
+        raise OptionError(f"bulk must be two numbers (low, high), found {bulk!r}",
+                          fix="pass the bulk values of the two phases, e.g. (0.0, 1.0)") from None
+    if not (np.isfinite(low) and np.isfinite(high) and low < level < high):
+        raise OptionError(f"bulk values must be finite with low < level < high, found ({low}, {high}) "
+                          f"and level {level}", fix="pass the measured bulk values of the two phases")
+    if low == 0.0 and high == 1.0:
+        return c, level
+    span = high - low
+    return (c - low) / span, (level - low) / span

@@ -242,13 +242,25 @@ def segregation_scale(mesh: Mesh, c_cell, *, resolution: int | None = None) -> f
     Danckwerts, P. V. (1952). The definition and measurement of some
     characteristics of mixtures. Applied Scientific Research A3, 279-296.
     """
-    from scipy.spatial import cKDTree
 
     c = cell_values(mesh, c_cell)
     if resolution is not None and (isinstance(resolution, bool) or not isinstance(resolution, (int, np.integer))
                                    or resolution < 4):
         raise OptionError(f"resolution must be a whole number >= 4, found {resolution!r}",
                           fix="for example resolution=256")
+    sample, spacing = regular_sample(mesh, c, resolution)
+    return _scale_from_samples(sample, spacing)
+
+
+def regular_sample(mesh: Mesh, c: np.ndarray, resolution: int | None = None):
+    """Cell values on a regular grid over the bounding box, and its spacing.
+
+    Directly on a uniform regular grid (no resolution asked); else the nearest cell centroid of
+    each grid point (NaN farther than 1.5 cell sizes), ``resolution`` points along the longest
+    side (default: the mean cell size, at most 1024 in 2D and 160 in 3D).
+    """
+    from scipy.spatial import cKDTree
+
     dim = mesh.dimension
     grid = mesh.regular_grid
     if resolution is None and grid is not None and grid.uniform:
@@ -269,7 +281,7 @@ def segregation_scale(mesh: Mesh, c_cell, *, resolution: int | None = None) -> f
         values = c[nearest]
         values[distance > 1.5 * mesh.cell_sizes[nearest]] = np.nan
         sample = values.reshape(shape)
-    return _scale_from_samples(sample, spacing)
+    return sample, spacing
 
 
 def _scale_from_samples(sample: np.ndarray, spacing: np.ndarray) -> float:

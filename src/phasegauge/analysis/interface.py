@@ -17,10 +17,10 @@ from ..model.contour import Contour
 from ..model.corners import CornerExtremes, cell_gradient
 from ._contour import find_interface
 from ._diffusion_audit import SHARP_CELLS_ACROSS, diffusion_audit, interface_kind
-from ._interface_width import (METRIC_KEYS, PROFILE_COLUMNS, WIDTH_PER_EPS, interface_metrics,
+from ._interface_width import (METRIC_KEYS, PROFILE_COLUMNS, WIDTH_PER_EPS, bulk_plateaus, interface_metrics,
                                interface_profile_table)
 
 __all__ = ["Contour", "CornerExtremes", "find_interface", "interface_metrics",
            "interface_profile_table", "cell_gradient", "diffusion_audit",
-           "interface_kind", "SHARP_CELLS_ACROSS",
+           "interface_kind", "SHARP_CELLS_ACROSS", "bulk_plateaus",
            "METRIC_KEYS", "PROFILE_COLUMNS", "WIDTH_PER_EPS"]

@@ -17,10 +17,11 @@ from ._binodal import (BinaryEquilibrium, CriticalPoint, binodal, critical_point
                        phase_diagram, spinodal)
 from ._phase_compositions import (MIXTURE_STATES, bulk_compositions, interface_distance, equilibrium_gap, gibbs_thomson_shift,
                                   mixture_state, solute_distribution)
+from ._equilibrium import EQUILIBRIUM_KEYS, equilibrium_metrics
 from ._tie_lines import TieLine, liquid_liquid_split, nrtl_split, nrtl_tau
 
 __all__ = ["NrtlModel", "RegularSolutionModel", "DoubleWellModel", "nrtl_ln_gamma", "MODEL_KINDS",
            "BinaryEquilibrium", "CriticalPoint", "spinodal", "binodal", "critical_points", "equilibrium_at",
            "phase_diagram", "TieLine", "liquid_liquid_split", "nrtl_split", "nrtl_tau",
            "bulk_compositions", "interface_distance", "mixture_state", "solute_distribution", "equilibrium_gap",
-           "gibbs_thomson_shift", "MIXTURE_STATES"]
+           "gibbs_thomson_shift", "MIXTURE_STATES", "equilibrium_metrics", "EQUILIBRIUM_KEYS"]

@@ -44,6 +44,8 @@ def ensure_vtk_extras() -> None:
     _check_vtu_cell_data_lengths()
     vtk_common.vtk_to_meshio_type.setdefault(8, "pixel")
     vtk_common.vtk_to_meshio_type.setdefault(11, "voxel")
+    # convex point sets come through meshio's reading of cells of any size, marked as theirs
+    vtk_common.vtk_to_meshio_type.setdefault(41, CONVEX_POINT_SET)
     for name, nodes, dim in (("pixel", 4, 2), ("voxel", 8, 3)):
         common.num_nodes_per_cell.setdefault(name, nodes)
         mesh_module.topological_dimension.setdefault(name, dim)
@@ -93,6 +95,69 @@ class StepFields:
         return sorted(set(self.point_data) | set(self.cell_data))
 
 
+class _ConvexPointSetName(str):
+    """meshio's name of VTK convex point set cells (41): equal to ``'polygon'``, so meshio reads
+    them as cells of any size (without a warning per step), and told apart by its class."""
+
+    __slots__ = ()
+
+    def __reduce__(self):
+        return (_ConvexPointSetName, (str(self),))
+
+
+CONVEX_POINT_SET = _ConvexPointSetName("polygon")
+
+
+def convex_point_sets(raw):
+    """Replace the convex point set blocks of a meshio mesh by ordinary cells (in place).
+
+    Recognised cells keep their row of cell data; cells split about their centre repeat it on
+    every piece, and their centres are added as points (point data: the corners' mean). How the
+    cells were read is kept as ``raw.convex_point_sets`` (a phrase), else None.
+    """
+    from ..model.convex_cells import ConvexCells, convert_convex_point_sets
+
+    raw.convex_point_sets = None
+    marked = [isinstance(b.type, _ConvexPointSetName) for b in raw.cells]
+    if not any(marked):
+        return raw
+    new_blocks, new_data = [], {name: [] for name in raw.cell_data}
+    out = ConvexCells()
+    points = np.asarray(raw.points, dtype=np.float64)
+    if points.shape[1] < 3:
+        points = np.hstack([points, np.zeros((len(points), 3 - points.shape[1]))])
+    for i, block in enumerate(raw.cells):
+        if not marked[i]:
+            new_blocks.append((str(block.type), block.data))
+            for name, arrays in raw.cell_data.items():
+                new_data[name].append(arrays[i])
+            continue
+        start = len(out.blocks)
+        convert_convex_point_sets(points, np.asarray(block.data), out)
+        for cell_type, cells in out.blocks[start:]:
+            new_blocks.append((cell_type, cells))
+        for name, arrays in raw.cell_data.items():
+            values = np.asarray(arrays[i])
+            new_data[name].extend(values[rows] for rows in out.source[start:])
+    if out.centre_corners:
+        corners = out.centre_corners
+        raw.points = np.vstack([points] + [points[c].mean(axis=1) for c in corners])
+        for name, values in list(raw.point_data.items()):
+            values = np.asarray(values)
+            if np.issubdtype(values.dtype, np.number):
+                raw.point_data[name] = np.concatenate([values] + [values[c].mean(axis=1) for c in corners])
+    raw.cells = [_cell_block(t, c) for t, c in new_blocks]
+    raw.cell_data = new_data
+    raw.convex_point_sets = f"convex point set cells (VTK 41) read {out.words()}"
+    return raw
+
+
+def _cell_block(cell_type, data):
+    from meshio import CellBlock
+
+    return CellBlock(cell_type, data)
+
+
 def read_with_meshio(path: str, fmt: str, *, fallback=None):
     """Read ``path`` with meshio's reader for ``fmt``, turning any failure into an :class:`UnreadableFileError`.
 
@@ -104,7 +169,7 @@ def read_with_meshio(path: str, fmt: str, *, fallback=None):
         # the reader is called directly: meshio.read() ends the process on a read error
         with warnings.catch_warnings(), contextlib.redirect_stdout(io.StringIO()):
             warnings.simplefilter("ignore")
-            return meshio_reader(fmt)(path)
+            raw = meshio_reader(fmt)(path)
     except MemoryError as exc:  # a size the header checks did not catch
         raise UnreadableFileError(f"reading it needs more memory than this machine can give ({short_text(exc)})",
                                   where=path, fix="the header may be damaged: write the step again; a real mesh "
@@ -115,6 +180,7 @@ def read_with_meshio(path: str, fmt: str, *, fallback=None):
             if raw is not None:
                 return raw
         raise diagnose_read_failure(path, fmt, exc) from None
+    return convex_point_sets(raw)
 
 
 def new_mesh(points, cells, *, point_data=None, cell_data=None, field_data=None):
@@ -362,6 +428,9 @@ def mesh_and_fields(raw, where: str, pool=None) -> tuple[Mesh, StepFields]:
         mesh = _checked_mesh(candidate, raw, where)
         if mesh is not candidate and pool is not None:
             mesh = pool.match(mesh) or mesh
+    note = getattr(raw, "convex_point_sets", None)
+    if note:
+        mesh.memo("convex_point_sets", lambda: note)
     return mesh, step_fields(mesh, raw, where)
 
 

@@ -10,7 +10,8 @@
     alpha = 0.3
 
 A regular solution takes ``A_a`` and ``A_b`` (``A = a + b / T``) or a constant ``chi``; the
-double well takes ``lean``, ``rich`` and optionally ``height``. Every value is checked on
+double well takes ``lean``, ``rich`` and optionally ``height`` and ``kappa`` (the gradient-energy
+coefficient, needed by ``measure --free-energy``). Every value is checked on
 reading; an error names the key and the fix in one line.
 """
 
@@ -30,7 +31,7 @@ __all__ = ["read_mixture_model", "mixture_model_from_table", "MODEL_KEYS"]
 MODEL_KEYS = MappingProxyType({
     "nrtl": ("tau_a", "tau_b", "tau_e", "tau_f", "alpha"),
     "regular": ("A_a", "A_b", "chi"),
-    "double-well": ("lean", "rich", "height"),
+    "double-well": ("lean", "rich", "height", "kappa"),
 })
 _COMMON = ("kind", "component", "description")
 

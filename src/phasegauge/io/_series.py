@@ -115,6 +115,27 @@ class Step:
         return self.info.index
 
 
+def folder_listing(folder: str, files: list):
+    """The ``time,path`` listing a folder holds beside its mesh files, or None.
+
+    A file with a listing suffix that reads as a listing and names only mesh files that exist
+    in the folder is taken (the first by name); files that are not listings (a probe table, a
+    log) are passed over. Returns ``(listing path, rows)``.
+    """
+    names = {os.path.abspath(f) for f in files}
+    for entry in sorted(os.listdir(folder), key=natural_key):
+        candidate = os.path.join(folder, entry)
+        if not (entry.lower().endswith(LISTING_SUFFIXES) and os.path.isfile(candidate)):
+            continue
+        try:
+            rows = read_listing(candidate)
+        except (SeriesError, OSError, UnicodeError):
+            continue
+        if all(os.path.abspath(f) in names for _, f in rows):
+            return candidate, rows
+    return None
+
+
 def read_listing(path: str) -> list[tuple[float, str]]:
     """Read a step listing.
 
@@ -225,6 +246,7 @@ class Series:
         self.mesh_pool = MeshPool() if mesh_pool is None else mesh_pool
         self.sort_by_time = bool(sort_by_time)
         self._xdmf_readers: dict = {}
+        self.listing_file = None  # a folder's own 'time,path' listing, when it has one
         self.steps = self._discover()
         if self.sort_by_time:
             self.steps = _sorted_by_time(self.steps, self.path)
@@ -247,6 +269,10 @@ class Series:
                                   "mesh file each", where=path,
                                   fix="give a folder of mesh files or of step folders, a mesh file or a step listing")
             self.kind = "folder"
+            listing = folder_listing(path, files)
+            if listing is not None:  # a 'time,path' listing beside the files gives order and times
+                self.listing_file = listing[0]
+                return [StepInfo(i, t, "listing", f) for i, (t, f) in enumerate(listing[1])]
             steps = self._from_files(files)
             _warn_numbering_gaps(files, path, steps)
             return steps

@@ -37,7 +37,8 @@ def describe_series(path, *, scan: str = "auto", sort_by_time: bool = False) -> 
     -------
     dict
         JSON-ready: ``path, kind, steps, times, time_origin, points, cells,
-        cell_types, boundary_cell_types, dimension, bounds, cell_size, mesh_changes,
+        cell_types, boundary_cell_types, dimension, cells_read_as (how convex point set cells
+        were read, else None), bounds, cell_size, mesh_changes,
         scanned_steps, fields`` (each field: ``name, location, components, min, max,
         nonfinite``), ``field_copies`` (the fields written on cells and on points
         under one name, with the copy measure reads), ``left_out_blocks`` (blocks
@@ -145,6 +146,8 @@ def _describe(series, scan: str) -> dict:
         "boundary_cell_types": {k: int(v) for k, v in mesh.boundary_type_counts.items()},
         "dimension": int(mesh.dimension),
         "quasi_2d": None if flat is None else flat.record(),
+        "cells_read_as": mesh.memo("convex_point_sets", lambda: None, keep=False),
+        "listing_file": getattr(series, "listing_file", None),
         "bounds": mesh.bounds.tolist(),
         "total_measure": float(mesh.total_measure),
         "regular_grid": (list(mesh.regular_grid.cell_shape) if mesh.regular_grid is not None else None),
@@ -217,6 +220,11 @@ def format_description(desc: dict) -> str:
              f"mesh        {desc['dimension']}D, {desc['points']} points, {desc['cells']} cells"
              + (" (mesh changes between steps)" if desc["mesh_changes"] else ""),
              "cell types  " + ", ".join(f"{k} {v}" for k, v in desc["cell_types"].items())]
+    if desc.get("listing_file"):
+        lines.append(f"listing     the folder's step listing {os.path.basename(desc['listing_file'])} gives the "
+                     "steps' order and times")
+    if desc.get("cells_read_as"):
+        lines.append(f"read as     {desc['cells_read_as']}")
     if desc.get("quasi_2d"):
         q = desc["quasi_2d"]
         lines.append(f"quasi-2D    one cell thick along {q['thin_axis']} (depth {q['depth']:.6g}): measure works per "

@@ -218,12 +218,16 @@ class DoubleWellModel:
     height : float
         Scale ``h`` of the well (> 0).
     component : str
+    kappa : float, optional
+        Gradient-energy coefficient of the phase-field free energy
+        ``int f + kappa/2 |grad x|^2 dV`` (> 0), for the equilibrium checks of a run.
     """
 
     lean: float = 0.0
     rich: float = 1.0
     height: float = 1.0
     component: str = ""
+    kappa: float | None = None
 
     kind = "double-well"
 
@@ -235,6 +239,14 @@ class DoubleWellModel:
                               fix="give the lower bulk value as lean")
         if self.height <= 0:
             raise OptionError(f"height must be > 0, found {self.height:g}", fix="write height = 1")
+        if self.kappa is not None:
+            try:
+                kappa = float(self.kappa)
+            except (TypeError, ValueError):
+                raise OptionError(f"kappa must be a number, found {self.kappa!r}", fix="write kappa = 1e-4") from None
+            if not (np.isfinite(kappa) and kappa > 0):
+                raise OptionError(f"kappa must be > 0, found {self.kappa!r}", fix="write kappa = 1e-4")
+            object.__setattr__(self, "kappa", kappa)
 
     def mixing_gibbs(self, x, temperature=None):
         """h (x - lean)^2 (x - rich)^2 (the temperature is not used)."""

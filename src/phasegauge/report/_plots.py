@@ -32,6 +32,10 @@ def measure_figures(result, snapshots: dict | None = None) -> list:
     if _has(steps, "interface_width") and len(steps) > 1:
         figures.append(("interface_width", "Interface width (5-95 %) in length units and in cells",
                         _plots_interface.plot_interface_width(steps)))
+    if _has(steps, "coarsening_length") and len(steps) > 1:
+        fit = next((f.figures for f in getattr(result, "findings", []) if f.kind == "coarsening"), None)
+        figures.append(("coarsening", "Characteristic length (structure factor) over time, log-log",
+                        _plots_interface.plot_coarsening(steps, fit)))
     if snapshots:
         figures.append(("interface_snapshots", "Interface (c = level) at chosen steps",
                         _plots_interface.plot_interface_snapshots(

@@ -11,7 +11,7 @@ import numpy as np
 from ..errors import OptionError
 from ._canvas import new_figure
 
-__all__ = ["plot_interface_width", "plot_interface_snapshots"]
+__all__ = ["plot_interface_width", "plot_interface_snapshots", "plot_coarsening"]
 
 
 def plot_interface_width(steps_df, *, time_column: str = "time", title: str | None = None):
@@ -153,4 +153,39 @@ def plot_interface_snapshots(interfaces_by_step, *, bounds, axis_names=("x", "y"
             ax.set_title(label(step), fontsize="small")
     if title:
         fig.suptitle(title)
+    return fig
+
+
+def plot_coarsening(steps_df, fit: dict | None = None):
+    """Characteristic length over time on log-log axes, with the fitted power law.
+
+    Parameters
+    ----------
+    steps_df : pandas.DataFrame
+        ``time`` and ``coarsening_length`` per step.
+    fit : dict, optional
+        ``exponent``, ``exponent_stderr`` and ``prefactor`` of L = a t^n (drawn as a line).
+
+    Returns
+    -------
+    matplotlib.figure.Figure
+    """
+    if "coarsening_length" not in getattr(steps_df, "columns", ()):
+        raise OptionError("the steps table has no 'coarsening_length' column", fix="measure with --coarsening")
+    t = steps_df["time"].to_numpy(dtype=float)
+    L = steps_df["coarsening_length"].to_numpy(dtype=float)
+    use = np.isfinite(t) & np.isfinite(L) & (t > 0) & (L > 0)
+    fig = new_figure()
+    ax = fig.add_subplot(1, 1, 1)
+    ax.loglog(t[use], L[use], "o", label="L = 2 pi / k1")
+    if fit and np.isfinite(fit.get("exponent", np.nan)) and use.any():
+        tt = np.geomspace(t[use].min(), t[use].max(), 50)
+        err = fit.get("exponent_stderr", np.nan)
+        label = f"fit: n = {fit['exponent']:.3f}" + (f" ± {err:.3f}" if np.isfinite(err) else "")
+        ax.loglog(tt, fit["prefactor"] * tt ** fit["exponent"], "-", label=label)
+        ax.loglog(tt, fit["prefactor"] * tt[0] ** fit["exponent"] * (tt / tt[0]) ** (1 / 3), ":",
+                  color="grey", label="n = 1/3 (Lifshitz-Slyozov)")
+    ax.set_xlabel("time")
+    ax.set_ylabel("characteristic length")
+    ax.legend()
     return fig

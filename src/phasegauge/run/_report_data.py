@@ -35,6 +35,8 @@ def series_record(series) -> dict:
 
     record = {"path": os.path.abspath(series.path), "kind": series.kind, "steps": len(series),
               "time_origin": "+".join(series.time_origins)}
+    if getattr(series, "listing_file", None):  # a folder's own step listing gave order and times
+        record["listing_file"] = os.path.abspath(series.listing_file)
     if series.steps and series.steps[0].path.lower().endswith(".vtm"):
         from ..errors import InputError
         from ..io._multiblock import multiblock_blocks

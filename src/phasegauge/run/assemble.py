@@ -34,7 +34,8 @@ class Finding:
     ----------
     kind : str
         ``interface_widening``, ``phase_volume_drift``, ``open_boundary``,
-        ``indicator_overshoot``, ``interface_under_resolved``,
+        ``indicator_overshoot``, ``bulk_plateaus`` (bulk off 0 and 1 read as physics), ``interface_under_resolved``,
+        ``width_cell_data_bias``, ``free_energy_increase``, ``coarsening``,
         ``droplets_under_resolved``, ``steps_skipped``, the mixture findings
         (``separated_one_phase``, ``mixed_inside_spinodal``, ``binodal_gap``,
         ``binodal_gibbs_thomson``, ``binodal_reached``; see ``run/_mixture.py``), or ``warning`` (a
@@ -315,6 +316,9 @@ def _sample_tables(done, options):
 #: through a solver and a file keeps ~1e-16 per cell; 1e-9 leaves room for float32 output and sums)
 ROUNDOFF_VOLUME = 1e-9
 
+#: widths are compared within this (relative): the expected cell-data bias is flagged above it
+WIDTH_TOLERANCE = 0.03
+
 
 def _worst(steps, column, how=np.nanmax) -> float:
     values = np.abs(steps[column].to_numpy(dtype=float)) if column in steps and len(steps) else np.zeros(0)
@@ -365,7 +369,10 @@ def findings(steps, droplets, audit: dict, options, skipped: list) -> list:
     if "overshoot_volume" in steps:
         worst = _worst(steps, "overshoot_volume")
         tolerance = ROUNDOFF_VOLUME * domain
-        if worst > tolerance:
+        plateaus = _bulk_plateaus(steps, droplets, options) if worst > tolerance else None
+        if plateaus is not None:
+            found.append(plateaus)
+        elif worst > tolerance:
             c_min, c_max = float(np.nanmin(steps["c_min"])), float(np.nanmax(steps["c_max"]))
             found.append(Finding("indicator_overshoot", "warning",
                                  f"indicator leaves [0, 1]: overshoot volume up to {worst:.3g} "
@@ -380,6 +387,36 @@ def findings(steps, droplets, audit: dict, options, skipped: list) -> list:
             found.append(Finding("interface_under_resolved", "warning",
                                  f"diffuse interface under-resolved: up to {100 * worst:.3g} % of it has fewer than "
                                  "4 cells across 0.1 < c < 0.9 (common practice)", {"fraction": worst, "threshold": 0.1}))
+    if "width_cell_data_bias" in steps:
+        worst = _worst(steps, "width_cell_data_bias")
+        if worst > WIDTH_TOLERANCE:
+            found.append(Finding("width_cell_data_bias", "warning",
+                                 f"widths on point values rebuilt from cell data read up to {100 * worst:.2g} % high "
+                                 "(0.063 (h / eps)^2: too few cells across the interface); width_threshold_free "
+                                 "integrates the cell values and carries about a fifth of it",
+                                 {"bias": worst, "tolerance": WIDTH_TOLERANCE}))
+    if "coarsening_length" in steps and len(steps) > 2:
+        from ..analysis.mixing import coarsening_exponent
+
+        fit = coarsening_exponent(steps["time"], steps["coarsening_length"])
+        if np.isfinite(fit["exponent"]):
+            err = fit["exponent_stderr"]
+            found.append(Finding("coarsening", "note",
+                                 f"the pattern coarsens as L ~ t^n with n = {fit['exponent']:.3g}"
+                                 + (f" ± {err:.2g}" if np.isfinite(err) else "")
+                                 + f" over {fit['points']} steps (diffusive coarsening: 1/3, Lifshitz & Slyozov 1961)",
+                                 fit))
+    if "free_energy" in steps and len(steps) > 1:
+        energy = steps["free_energy"].to_numpy(dtype=float)
+        rise = np.diff(energy)
+        floor = ROUNDOFF_VOLUME * max(float(np.nanmax(np.abs(energy))), 1e-300)
+        if np.nanmax(np.append(rise, -np.inf)) > floor:
+            i = int(np.nanargmax(rise))
+            found.append(Finding("free_energy_increase", "warning",
+                                 f"the free energy increases between steps ({np.count_nonzero(rise > floor)} times, "
+                                 f"most by {rise[i]:.3g} after step {int(steps['step'].iat[i])}): a relaxing "
+                                 "phase-field run only lowers it", {"largest_increase": float(rise[i]),
+                                                                     "tolerance": floor}))
     if len(droplets) and "under_resolved" in droplets:
         n = int(droplets["under_resolved"].sum())
         if n:
@@ -390,6 +427,63 @@ def findings(steps, droplets, audit: dict, options, skipped: list) -> list:
         found.append(Finding("steps_skipped", "warning", f"{len(skipped)} step(s) skipped: " + "; ".join(skipped[:3]),
                              {"count": len(skipped)}))
     return found
+
+
+def _bulk_plateaus(steps, droplets=None, options=None):
+    """A note on bulk plateaus off 0 and 1 that account for c leaving [0, 1], or None.
+
+    A diffuse-interface (Cahn-Hilliard) bulk sits off the wells by the Gibbs-Thomson shift of
+    its curved interfaces; c beyond [0, 1] is then physics as long as it stays within the
+    plateaus' range widened by the shift itself (twice the shift from the well, at least 1e-3).
+    Values further out are overshoot (None: the caller warns).
+    """
+    if "bulk_c_low" not in steps or "c_min" not in steps or not len(steps):
+        return None
+    lows, highs = steps["bulk_c_low"].to_numpy(float), steps["bulk_c_high"].to_numpy(float)
+    if not (np.isfinite(lows).any() and np.isfinite(highs).any()):
+        return None
+    low, high = float(np.nanmin(lows)), float(np.nanmax(highs))
+    if low == 0.0 and high == 1.0:
+        return None
+    c_min, c_max = float(np.nanmin(steps["c_min"])), float(np.nanmax(steps["c_max"]))
+    floor, ceiling = min(0.0, low - max(-low, 1e-3)), max(1.0, high + max(high - 1.0, 1e-3))
+    if c_min < floor or c_max > ceiling:
+        return None
+    figures = {"bulk_c_low": low, "bulk_c_high": high, "c_min": c_min, "c_max": c_max,
+               "shift_low": low, "shift_high": high - 1.0}
+    expected = _expected_shift(steps, droplets, options)
+    words = ""
+    if expected is not None:
+        figures["expected_shift"] = expected
+        words = f" (the free energy's Gibbs-Thomson shift for the largest drop at the last step: {expected:+.2g})"
+    return Finding("bulk_plateaus", "note",
+                   f"the bulk of the phases sits off 0 and 1 (c = {low:.4g} and {high:.4g}, shift {low:+.2g} and "
+                   f"{high - 1:+.2g}){words}: a diffuse-interface model's bulk, moved by the Gibbs-Thomson shift of "
+                   f"curved interfaces, is physics, not overshoot; c stays within {c_min:.4g} to {c_max:.4g}, "
+                   "inside the plateaus' range", figures)
+
+
+def _expected_shift(steps, droplets, options):
+    """Gibbs-Thomson shift of the bulk in c for the largest drop of the last step, or None.
+
+    For the double well h (phi - lean)^2 (phi - rich)^2 with gradient coefficient kappa:
+    sigma = (rich - lean)^3 sqrt(2 kappa h) / 6, and a drop of radius R raises the chemical
+    potential of both bulks by mu = (d - 1) sigma / (R (rich - lean)), which moves each bulk by
+    mu / f'' with f'' = 2 h (rich - lean)^2 at the wells (Cahn & Hilliard 1958; linearised).
+    """
+    model = getattr(options, "free_energy", None)
+    if model is None or droplets is None or not len(droplets) or "equivalent_diameter" not in droplets:
+        return None
+    last = droplets[droplets["step"] == droplets["step"].max()]
+    radius = 0.5 * float(np.nanmax(last["equivalent_diameter"]))
+    if not radius > 0:
+        return None
+    dim = 2 if np.isfinite(last["circularity"]).any() else 3
+    gap = model.rich - model.lean
+    sigma = gap ** 3 * np.sqrt(2.0 * model.kappa * model.height) / 6.0
+    mu = (dim - 1) * sigma / (radius * gap)
+    lo, hi = options.value_range
+    return float(mu / (2.0 * model.height * gap ** 2) / (hi - lo))
 
 
 def _number(value):

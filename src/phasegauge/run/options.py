@@ -81,6 +81,13 @@ class MeasureOptions:
     keep_3d : bool
         Measure a mesh one cell thick (quasi-2D) as 3D; by default it is
         measured per unit depth as 2D on its lower face plane.
+    free_energy : str or DoubleWellModel, optional
+        A model file (or model) of the double well and its gradient coefficient kappa, in the
+        field's own variable: each step then gets the chemical potential's spread, the free
+        energy and the interfacial tension (regular grids).
+    coarsening : bool
+        The characteristic length of the pattern per step (``coarsening_length``, first moment
+        of the structure factor) and the fitted exponent of L ~ t^n.
     probes : tuple of (name, x, y, z)
         Points where the field and c are kept at every step (``probes.csv``).
     lines : tuple of (name, x0, y0, z0, x1, y1, z1, points)
@@ -130,6 +137,8 @@ class MeasureOptions:
     field_location: str = "auto"
     sort_by_time: bool = False
     keep_3d: bool = False
+    free_energy: object = None
+    coarsening: bool = False
 
     probes: tuple = ()
     lines: tuple = ()
@@ -198,6 +207,8 @@ class MeasureOptions:
                               fix="give the physical diffusivity or mobility in length^2/time")
         if not 0.0 < float(self.mixing_target) <= 1.0:
             raise OptionError("mixing target must lie in (0, 1]", fix="0.9 is common practice")
+        if self.free_energy is not None:
+            set_(self, "free_energy", _free_energy_model(self.free_energy))
         if self.box is not None:
             box = tuple(tuple(float(v) for v in pair) for pair in self.box)
             if any(len(p) != 2 or p[0] >= p[1] for p in box):
@@ -217,6 +228,20 @@ class MeasureOptions:
     def step_extra(self, step, indicator):
         """Extra per-step work for a subclass (kept in ``StepResult.extra``); None here."""
         return None
+
+
+def _free_energy_model(value):
+    """The double-well model of ``--free-energy`` (a model file path or a model), with its kappa."""
+    import os
+
+    if isinstance(value, (str, os.PathLike)):
+        from ..io import read_mixture_model
+
+        value = read_mixture_model(value)
+    if getattr(value, "kind", None) != "double-well" or getattr(value, "kappa", None) is None:
+        raise OptionError("the free energy needs a double well with its gradient coefficient kappa",
+                          fix='write [model] kind = "double-well", lean, rich, height and kappa in the model file')
+    return value
 
 
 def check_workers(workers) -> int:

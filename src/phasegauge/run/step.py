@@ -203,10 +203,15 @@ def analyse_step(step, options, *, contour_dir: str | None = None, reported_mesh
 
             write_contour(contour, os.path.join(contour_dir, f"interface_{step.index:06d}.vtu"))
     if "droplets" in options.analyses:
+        # droplets measured between the measured bulk values of the two phases (as the widths)
+        low, high, tail = interface.bulk_plateaus(ind.point, options.level)
         found = droplets_mod.label_droplets(
             mesh, ind.cell, level=options.level, connectivity=options.connectivity, periodic=tuple(options.periodic),
-            velocity=u_cell, interface_cells=contour.cells, interface_sizes=contour.element_sizes)
+            velocity=u_cell, interface_cells=contour.cells, interface_sizes=contour.element_sizes,
+            bulk=(low, high), band_floor=max(1e-3, tail) if (low, high) != (0.0, 1.0) else 1e-3)
         table = found.table
+        if ind.location == "point":  # points written on both ends of a period (cell data cannot tell)
+            _warn_periodic_look(mesh, ind.point, options, step.info.where)
         m["droplet_count"] = int(found.count)
         m["under_resolved_droplets"] = int(table["under_resolved"].sum()) if len(table) else 0
         labelled = np.flatnonzero(found.labels >= 0)
@@ -230,6 +235,10 @@ def analyse_step(step, options, *, contour_dir: str | None = None, reported_mesh
             profile.insert(0, "time", step.time)
             profile.insert(0, "step", step.index)
             result.profile = profile
+    if getattr(options, "coarsening", False):
+        m["coarsening_length"] = mixing.coarsening_length(mesh, ind.cell)
+    if getattr(options, "free_energy", None) is not None:
+        m.update(_equilibrium(mesh, ind, options, m.get("interface_size")))
     if options.model is not None:  # a partially miscible mixture: bulk compositions against the model
         from ._mixture import mixture_step
 
@@ -238,6 +247,29 @@ def analyse_step(step, options, *, contour_dir: str | None = None, reported_mesh
     result.metrics = m
     result.contour = contour
     return result
+
+
+def _equilibrium(mesh, ind, options, interface_size) -> dict:
+    """Chemical potential spread, free energy and tension of the field in the model's own variable."""
+    from ..analysis.thermo import equilibrium_metrics
+
+    lo, hi = ind.value_range
+    c = ind.cell if ind.phase == "upper" else 1.0 - ind.cell
+    field = lo + (hi - lo) * c  # the field as written (the indicator maps lo -> 0, hi -> 1)
+    return equilibrium_metrics(mesh, field, options.free_energy, kappa=options.free_energy.kappa,
+                               periodic=tuple(options.periodic), interface_size=interface_size)
+
+
+def _warn_periodic_look(mesh, c_point, options, where: str) -> None:
+    """One warning (collapsed over steps) when the field looks periodic along an axis not measured so."""
+    from ..analysis.droplets import looks_periodic
+
+    axes = looks_periodic(mesh, c_point, periodic=tuple(options.periodic))
+    if axes:
+        names = ",".join(axes)
+        warnings.warn(MeshWarning(f"the field on opposite boundaries along {names} matches to round-off: the run "
+                                  f"looks periodic, and droplets crossing the boundary are counted twice; "
+                                  f"give --periodic {names} if it is", where=where), stacklevel=2)
 
 
 # ------------------------------------------------------------------ the unit of parallel work

@@ -1,0 +1,97 @@
+"""Whether a field looks periodic: its point values on opposite boundaries match to round-off.
+
+A periodic solver that writes its points on both ends of a period stores the same values
+there. Measured without periodic axes, such a run splits every droplet that crosses the
+boundary in two; this check lets the run say so.
+"""
+
+from __future__ import annotations
+
+import numpy as np
+
+from ..model.axes import AXIS_NAMES
+from ..model.mesh import Mesh
+
+__all__ = ["looks_periodic", "ROUNDOFF"]
+
+#: largest difference, relative to the field's spread on the boundary, counted as round-off
+ROUNDOFF = 1e-9
+
+#: the field must vary along the boundary by at least this much (in c) for a match to mean anything
+MIN_VARIATION = 1e-3
+
+
+def _boundary_point_pairs(mesh: Mesh, axis: int):
+    """Points on the low and high boundary planes of ``axis`` paired by their other coordinates, or None."""
+    points = mesh.points[mesh.used_points]
+    used = mesh.used_points
+    lo, hi = mesh.bounds[0, axis], mesh.bounds[1, axis]
+    span = hi - lo
+    if not span > 0:
+        return None
+    tol = 1e-9 * max(float(np.ptp(mesh.bounds, axis=0).max()), 1e-300)
+    low = np.flatnonzero(np.abs(points[:, axis] - lo) <= tol)
+    high = np.flatnonzero(np.abs(points[:, axis] - hi) <= tol)
+    if len(low) < 2 or len(low) != len(high):
+        return None
+    others = [a for a in range(3) if a != axis]
+    key_lo = np.round(points[low][:, others] / (1e3 * tol)).astype(np.int64)
+    key_hi = np.round(points[high][:, others] / (1e3 * tol)).astype(np.int64)
+    order_lo = np.lexsort(key_lo.T[::-1])
+    order_hi = np.lexsort(key_hi.T[::-1])
+    if not np.array_equal(key_lo[order_lo], key_hi[order_hi]):
+        return None
+    # the next plane inside the low boundary, paired the same way (None when the mesh has no
+    # such plane: an unstructured mesh)
+    inner = None
+    coords = np.unique(points[:, axis])
+    if coords.size > 2:
+        nxt = np.flatnonzero(np.abs(points[:, axis] - coords[1]) <= tol)
+        if len(nxt) == len(low):
+            key_in = np.round(points[nxt][:, others] / (1e3 * tol)).astype(np.int64)
+            order_in = np.lexsort(key_in.T[::-1])
+            if np.array_equal(key_in[order_in], key_lo[order_lo]):
+                inner = used[nxt[order_in]]
+    return used[low[order_lo]], used[high[order_hi]], inner
+
+
+def looks_periodic(mesh: Mesh, c_point, *, periodic=()) -> list:
+    """Axes along which the point values on opposite boundaries match to round-off.
+
+    Parameters
+    ----------
+    mesh : Mesh
+    c_point : ndarray of shape (n_points,)
+        Point values of the indicator.
+    periodic : sequence of str
+        Axes already measured as periodic (not checked).
+
+    Returns
+    -------
+    list of str
+        Axis names (``'x'``, ``'y'``, ``'z'``) whose two boundary planes hold the same points
+        (paired by their other coordinates) with values equal within ``ROUNDOFF`` of their
+        spread, the values varying by more than ``MIN_VARIATION`` along the plane (a uniform
+        matrix on both sides proves nothing) and, where the mesh has a next plane of points
+        inside, across the boundary too (a field layered along the boundary, or mirrored at a
+        wall, matches on both sides without being periodic).
+    """
+    c = np.asarray(c_point, dtype=np.float64)
+    found = []
+    for axis in range(mesh.dimension):
+        name = AXIS_NAMES[axis]
+        if name in periodic:
+            continue
+        pairs = mesh.memo(("boundary_point_pairs", axis), lambda a=axis: _boundary_point_pairs(mesh, a))
+        if pairs is None:
+            continue
+        a, b = c[pairs[0]], c[pairs[1]]
+        if not (np.isfinite(a).all() and np.isfinite(b).all()):
+            continue
+        spread = float(max(np.ptp(a), np.ptp(b)))
+        if not (spread > MIN_VARIATION and float(np.max(np.abs(a - b))) <= ROUNDOFF * spread):
+            continue
+        if pairs[2] is not None and float(np.max(np.abs(c[pairs[2]] - a))) <= MIN_VARIATION:
+            continue  # nothing changes across the boundary (a layered field, a mirror wall): no sign
+        found.append(name)
+    return found

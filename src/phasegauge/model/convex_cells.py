@@ -1,0 +1,226 @@
+"""Convex point set cells (VTK type 41): corners in any order, turned into ordinary cells.
+
+A convex point set cell lists its corners without an order; the cell is their convex hull.
+General finite-volume packages write their uniform 2D grids and 3D grids this way. Most such
+cells are quadrilaterals or hexahedra, so they are recognised by their corners and given the
+corner order of the ordinary cell:
+
+* corners in one plane: a triangle, or a quad or polygon with its corners ordered by angle
+  about their centre in that plane (the hull of a convex set of coplanar points);
+* four corners off one plane: a tetrahedron with positive volume;
+* eight corners off one plane: a hexahedron when each corner falls in its own octant of the
+  cell's frame (the coordinate axes, else the principal axes of the corners, else the edges from
+  one corner to its three nearest), so that parallelepipeds and mildly distorted hexahedra are
+  recognised, axis-aligned or not;
+* anything else (five, six or more than eight corners, a hexahedron none of the frames
+  orders): split about its centre into tetrahedra over the triangles of its convex
+  hull (scipy's Qhull); every piece keeps the cell's values, so integrals stay exact.
+
+Only the unrecognised cells are handled one at a time (Qhull per cell); the common cases are
+vectorised.
+
+References
+----------
+Kitware, *The VTK User's Guide*, 11th ed. (2010), cell type VTK_CONVEX_POINT_SET (41).
+C. B. Barber, D. P. Dobkin, H. Huhdanpaa (1996), "The Quickhull algorithm for convex hulls",
+ACM Trans. Math. Software 22:469 (scipy.spatial.ConvexHull).
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass, field
+
+import numpy as np
+
+__all__ = ["ConvexCells", "convert_convex_point_sets"]
+
+#: relative size of the smallest singular value below which corners count as one plane
+PLANAR_TOLERANCE = 1e-9
+
+#: VTK hexahedron corner index of each octant (bit 0: axis 1 high, bit 1: axis 2 high, bit 2: axis 3 high)
+_OCTANT_TO_CORNER = np.array([0, 1, 3, 2, 4, 5, 7, 6])
+_OCTANT_TO_CORNER.flags.writeable = False
+
+
+@dataclass
+class ConvexCells:
+    """Convex point set cells turned into ordinary cells.
+
+    Attributes
+    ----------
+    blocks : list of (str, ndarray of shape (m, k))
+        The new cell blocks (type, connectivity).
+    source : list of ndarray of shape (m,)
+        For each new block, the row of the input cell each new cell comes from (for the cell data).
+    counts : dict of str to int
+        How the input cells were read: ``'triangle', 'quad', 'polygon', 'tetra', 'hexahedron'``
+        (recognised by their corners) and ``'split'`` (split about their centre), with
+        ``'split_pieces'`` the number of tetrahedra these became.
+    centre_corners : list of ndarray of shape (j, k)
+        The corners of the split cells, in the order their centres are numbered after the
+        input points (a centre's point values are its corners' mean).
+    """
+
+    blocks: list = field(default_factory=list)
+    source: list = field(default_factory=list)
+    counts: dict = field(default_factory=dict)
+    centre_corners: list = field(default_factory=list)
+
+    @property
+    def n_centres(self) -> int:
+        return sum(len(c) for c in self.centre_corners)
+
+    def add(self, cell_type: str, cells: np.ndarray, rows: np.ndarray, *, count: str | None = None) -> None:
+        if len(rows) == 0:
+            return
+        self.blocks.append((cell_type, np.ascontiguousarray(cells, dtype=np.int64)))
+        self.source.append(np.asarray(rows, dtype=np.int64))
+        key = count or cell_type
+        self.counts[key] = self.counts.get(key, 0) + (len(np.unique(rows)) if count else len(rows))
+
+    def words(self) -> str:
+        """How the cells were read, in one phrase."""
+        names = {"triangle": "triangles", "quad": "quads", "polygon": "polygons", "tetra": "tetrahedra",
+                 "hexahedron": "hexahedra"}
+        parts = [f"{self.counts[k]} as {names[k]}" for k in names if self.counts.get(k)]
+        if self.counts.get("split"):
+            parts.append(f"{self.counts['split']} split about their centre into "
+                         f"{self.counts['split_pieces']} tetrahedra")
+        return ", ".join(parts)
+
+
+def convert_convex_point_sets(points: np.ndarray, cells: np.ndarray, out: ConvexCells | None = None,
+                              *, rows: np.ndarray | None = None) -> ConvexCells:
+    """Turn convex point set cells with ``k`` corners each into ordinary cells.
+
+    Parameters
+    ----------
+    points : ndarray of shape (n_points, 3)
+    cells : ndarray of shape (m, k), int
+        Corner indices of each cell, in any order.
+    out : ConvexCells, optional
+        Collects the result of several blocks (one per corner count).
+    rows : ndarray of shape (m,), optional
+        Row of each cell among all input cells (default ``arange(m)``).
+
+    Returns
+    -------
+    ConvexCells
+    """
+    out = ConvexCells() if out is None else out
+    cells = np.asarray(cells, dtype=np.int64)
+    rows = np.arange(len(cells)) if rows is None else np.asarray(rows)
+    if len(cells) == 0:
+        return out
+    k = cells.shape[1]
+    xyz = np.asarray(points, dtype=np.float64)[cells]  # (m, k, 3)
+    centre = xyz.mean(axis=1, keepdims=True)
+    local = xyz - centre
+    _, sing, frames = np.linalg.svd(local, full_matrices=False)
+    extent = np.maximum(sing[:, 0], np.finfo(float).tiny)
+    planar = sing[:, 2] <= PLANAR_TOLERANCE * extent if k >= 3 else np.ones(len(cells), bool)
+    if planar.any():
+        _planar_cells(local[planar], frames[planar], cells[planar], rows[planar], out)
+    solid = ~planar
+    if not solid.any():
+        return out
+    if k == 4:
+        tets = cells[solid].copy()
+        p = xyz[solid]
+        vol = np.einsum("ij,ij->i", np.cross(p[:, 1] - p[:, 0], p[:, 2] - p[:, 0]), p[:, 3] - p[:, 0])
+        flip = vol < 0
+        tets[flip, 1], tets[flip, 2] = cells[solid][flip, 2], cells[solid][flip, 1]
+        out.add("tetra", tets, rows[solid])
+        return out
+    rest = np.flatnonzero(solid)
+    if k == 8:
+        hexes, ok = _hexahedra(local[rest], frames[rest], cells[rest])
+        out.add("hexahedron", hexes[ok], rows[rest][ok])
+        rest = rest[~ok]
+    if len(rest):
+        _split_about_centre(np.asarray(points, dtype=np.float64), cells[rest], rows[rest], out)
+    return out
+
+
+def _planar_cells(local, frames, cells, rows, out: ConvexCells) -> None:
+    """Order coplanar corners by angle about their centre (counter-clockwise seen from +normal)."""
+    k = cells.shape[1]
+    if k < 3:
+        return
+    axis_u, axis_v = frames[:, 0], frames[:, 1]
+    normal = np.cross(axis_u, axis_v)
+    # seen from +z where the plane is the xy plane (the usual 2D mesh): flip frames facing down
+    down = normal[:, 2] < 0
+    axis_v = np.where(down[:, None], -axis_v, axis_v)
+    u = np.einsum("mkj,mj->mk", local, axis_u)
+    v = np.einsum("mkj,mj->mk", local, axis_v)
+    order = np.argsort(np.arctan2(v, u), axis=1, kind="stable")
+    ordered = np.take_along_axis(cells, order, axis=1)
+    name = {3: "triangle", 4: "quad"}.get(k, "polygon")
+    out.add(name, ordered, rows)
+
+
+def _hexahedra(local, frames, cells):
+    """Hexahedron corner order from the octant of each corner; ``ok`` where that is a permutation.
+
+    The octants are read in three frames in turn, each for the cells the earlier ones left: the
+    coordinate axes (axis-aligned cells), the principal axes of the corners (any parallelepiped
+    with distinct sides) and the edges from the first corner to its three nearest corners, in
+    oblique coordinates (cubes and near-cubes in any orientation).
+    """
+    m = len(cells)
+    result = np.zeros_like(cells)
+    ok = np.zeros(m, dtype=bool)
+    for frame in ("axes", "principal", "edges"):
+        todo = np.flatnonzero(~ok)
+        if not len(todo):
+            break
+        if frame == "axes":
+            to_frame = np.broadcast_to(np.eye(3), (len(todo), 3, 3)).copy()
+        elif frame == "principal":
+            to_frame = np.transpose(frames[todo], (0, 2, 1))
+        else:
+            rel = local[todo] - local[todo, :1]
+            near = np.argsort(np.einsum("mkj,mkj->mk", rel, rel), axis=1)[:, 1:4]
+            edges = np.take_along_axis(rel, near[..., None], axis=1)  # (m, 3, 3): rows are edges
+            det = np.linalg.det(edges)
+            usable = np.abs(det) > 1e-9 * np.einsum("mkj,mkj->m", edges, edges) ** 1.5
+            todo, edges = todo[usable], edges[usable]
+            to_frame = np.linalg.inv(edges)
+        left = np.linalg.det(to_frame) < 0
+        to_frame[left, :, 2] *= -1  # a right-handed frame gives positive volumes
+        proj = np.einsum("mkj,mja->mka", local[todo], to_frame)  # (m, 8, 3)
+        scale = np.abs(proj).max(axis=1, keepdims=True)
+        high = proj > 0
+        clear = np.all(np.abs(proj) > 1e-6 * scale, axis=(1, 2))
+        octant = high[..., 0] * 1 + high[..., 1] * 2 + high[..., 2] * 4
+        slot = _OCTANT_TO_CORNER[octant]
+        good = clear & np.all(np.sort(slot, axis=1) == np.arange(8), axis=1)
+        idx = todo[good]
+        order = np.argsort(slot[good], axis=1)
+        result[idx] = np.take_along_axis(cells[idx], order, axis=1)
+        ok[idx] = True
+    return result, ok
+
+
+def _split_about_centre(points, cells, rows, out: ConvexCells) -> None:
+    """Tetrahedra from the centre of each cell to the triangles of its convex hull (Qhull per cell)."""
+    from scipy.spatial import ConvexHull
+
+    centres = points[cells].mean(axis=1)
+    extra = np.arange(len(cells)) + len(points) + out.n_centres  # the centres' point numbers
+    tets, owner = [], []
+    for i, corners in enumerate(cells):  # only cells no table recognises
+        hull = ConvexHull(points[corners])
+        tri = corners[hull.simplices]
+        tets.append(np.column_stack([tri, np.full(len(tri), extra[i])]))
+        owner.append(np.full(len(tri), i))
+    tets = np.concatenate(tets)
+    owner = np.concatenate(owner)
+    p = np.concatenate([points[tets[:, :3]], centres[owner][:, None]], axis=1)
+    vol = np.einsum("ij,ij->i", np.cross(p[:, 1] - p[:, 0], p[:, 2] - p[:, 0]), p[:, 3] - p[:, 0])
+    flip = vol < 0
+    tets[flip, 0], tets[flip, 1] = tets[flip, 1].copy(), tets[flip, 0].copy()
+    out.centre_corners.append(cells)
+    out.add("tetra", tets, rows[owner], count="split")
+    out.counts["split_pieces"] = out.counts.get("split_pieces", 0) + len(tets)

@@ -1,0 +1,51 @@
+"""A field whose point values on opposite boundaries match to round-off looks periodic.
+
+Outside check: a field built periodic from sin and cos (2 pi periodic to round-off, numpy's
+own evaluation) against fields that are not (c = x; a drop with a uniform matrix around it).
+"""
+
+import warnings
+
+import numpy as np
+
+from phasegauge.analysis.droplets import looks_periodic
+from phasegauge.meshgen import grid_mesh
+
+
+def test_periodic_field_is_told_apart_from_bounded_ones():
+    mesh = grid_mesh((32, 24))
+    x, y = mesh.points[:, 0], mesh.points[:, 1]
+    periodic = 0.5 + 0.4 * np.cos(2 * np.pi * x) * np.cos(2 * np.pi * y)
+    assert looks_periodic(mesh, periodic) == ["x", "y"]
+    assert looks_periodic(mesh, periodic, periodic=("x",)) == ["y"]
+    assert looks_periodic(mesh, 0.8 * x + 0.1 * y) == []
+    drop = 0.5 * (1 + np.tanh((0.2 - np.hypot(x - 0.5, y - 0.5)) / 0.02))  # matrix on every boundary
+    assert looks_periodic(mesh, drop) == []
+    only_x = 0.5 + 0.4 * np.cos(2 * np.pi * x) * y
+    assert looks_periodic(mesh, only_x) == ["x"]
+
+
+def test_measure_without_periodic_warns_once(tmp_path):
+    from phasegauge import measure
+    from phasegauge.meshgen import to_meshio
+
+    folder = tmp_path / "run"
+    folder.mkdir()
+    mesh = grid_mesh((40, 40))
+    x, y = mesh.points[:, 0], mesh.points[:, 1]
+    for k in range(3):  # a drop across the corner, periodic in x and y
+        c = 0.5 * (1 + np.tanh((0.15 - np.hypot(np.sin(np.pi * (x - 0.0)), np.sin(np.pi * y))) / 0.03))
+        to_meshio(mesh, point_data={"c": c}).write(str(folder / f"s_{k}.vtu"))
+    with warnings.catch_warnings(record=True) as caught:
+        warnings.simplefilter("always")
+        measure(str(folder), field="c")
+    texts = [str(w.message) for w in caught if "looks periodic" in str(w.message)]
+    assert len(texts) == 1 and "--periodic x,y" in texts[0]
+
+
+def test_layered_field_is_not_taken_for_periodic():
+    # a flat free surface in a tank: c depends on y only, so the two x walls match
+    mesh = grid_mesh((32, 32))
+    y = mesh.points[:, 1]
+    layered = 0.5 * (1 + np.tanh((0.4 - y) / 0.03))
+    assert looks_periodic(mesh, layered) == []

@@ -1,0 +1,43 @@
+"""A folder holding a 'time,path' listing beside its files uses it for order and times.
+
+Outside check: the times written in the listing by hand (not read from the files) and the
+order they give, against the files' names in reverse.
+"""
+
+import numpy as np
+
+from phasegauge.io import Series
+from phasegauge.io.describe import describe_series, format_description
+from phasegauge.meshgen import grid_mesh, to_meshio
+
+
+def _folder(tmp_path, listing_text=None, extra=None):
+    folder = tmp_path / "run"
+    folder.mkdir()
+    mesh = grid_mesh((4, 4))
+    for i in range(3):
+        to_meshio(mesh, point_data={"c": np.full(mesh.n_points, 0.1 * i)}).write(str(folder / f"out_{i}.vtu"))
+    if listing_text is not None:
+        (folder / "times.csv").write_text(listing_text)
+    if extra is not None:
+        (folder / "probes.csv").write_text(extra)
+    return str(folder)
+
+
+def test_folder_listing_gives_order_and_times(tmp_path):
+    folder = _folder(tmp_path, "time,path\n0.5,out_2.vtu\n1.25,out_1.vtu\n2.0,out_0.vtu\n",
+                     extra="name,x,y\np,0.5,0.5\n")
+    series = Series(folder)
+    assert [s.time for s in series.steps] == [0.5, 1.25, 2.0]
+    assert [s.path.rsplit("_", 1)[1] for s in series.steps] == ["2.vtu", "1.vtu", "0.vtu"]
+    assert series.time_origins == ["listing"] or "listing" in "+".join(series.time_origins)
+    desc = describe_series(folder)
+    assert desc["listing_file"].endswith("times.csv")
+    assert "step listing times.csv gives the steps' order and times" in format_description(desc)
+
+
+def test_folder_without_listing_or_with_other_csv_is_unchanged(tmp_path):
+    folder = _folder(tmp_path, extra="name,x,y\np,0.5,0.5\n")
+    series = Series(folder)
+    assert series.listing_file is None
+    assert [s.path.rsplit("_", 1)[1] for s in series.steps] == ["0.vtu", "1.vtu", "2.vtu"]

@@ -1,0 +1,56 @@
+"""Bulk plateaus off the wells are reported as physics, values beyond them as overshoot.
+
+Outside check: the Cahn-Hilliard drop's bulk values phi = -0.980 and 1.018 of issue 22's run
+(a Gibbs-Thomson shift, Cahn & Hilliard 1958 free energy) written as an analytic tanh drop.
+"""
+
+import numpy as np
+import pytest
+
+from phasegauge import measure
+from phasegauge.meshgen import grid_mesh, to_meshio
+
+
+def _series(folder, spike=0.0):
+    folder.mkdir()
+    mesh = grid_mesh((80, 80))
+    x, y = mesh.points[:, 0], mesh.points[:, 1]
+    low, high = -0.980, 1.018
+    for k in range(3):
+        r = np.hypot(x - 0.5, y - 0.5)
+        phi = low + (high - low) * 0.5 * (1 + np.tanh((0.25 - r) / (np.sqrt(2) * 0.02)))
+        phi[np.argmin(r)] += spike
+        to_meshio(mesh, point_data={"phi": phi}, field_data={"TimeValue": np.array([0.1 * k])}).write(
+            str(folder / f"s_{k}.vtu"))
+    return str(folder)
+
+
+@pytest.mark.parametrize("spike, kind", [(0.0, "bulk_plateaus"), (0.3, "indicator_overshoot")])
+def test_shifted_bulk_is_physics_and_values_beyond_it_overshoot(tmp_path, spike, kind):
+    result = measure(_series(tmp_path / "run", spike), field="phi", value_range=(-1, 1))
+    kinds = [f.kind for f in result.findings]
+    assert kind in kinds
+    other = {"bulk_plateaus": "indicator_overshoot", "indicator_overshoot": "bulk_plateaus"}[kind]
+    assert other not in kinds
+    if kind == "bulk_plateaus":
+        note = result.findings[kinds.index(kind)]
+        assert note.severity == "note" and "Gibbs-Thomson" in note.text
+        assert note.figures["bulk_c_high"] == pytest.approx((1.018 + 1) / 2, abs=1e-3)
+        assert note.figures["bulk_c_low"] == pytest.approx((-0.980 + 1) / 2, abs=1e-3)
+
+
+def test_expected_shift_from_the_free_energy(tmp_path):
+    """The note names the linearised Gibbs-Thomson shift of the double well (Cahn & Hilliard 1958):
+    sigma = (2 sqrt2 / 3) sqrt(kappa beta) for (beta/4)(phi^2 - 1)^2, mu = sigma / R in 2D
+    (two phases 2 apart: mu = sigma / (2 R)), shift = mu / f''(1) = mu / (2 beta), in c: / 2."""
+    beta, kappa = 1.0, 2e-4
+    model = tmp_path / "well.toml"
+    model.write_text(f'[model]\nkind = "double-well"\nlean = -1.0\nrich = 1.0\nheight = {beta / 4}\n'
+                     f"kappa = {kappa}\n")
+    result = measure(_series(tmp_path / "run"), field="phi", value_range=(-1, 1), free_energy=str(model))
+    note = next(f for f in result.findings if f.kind == "bulk_plateaus")
+    radius = 0.5 * result.droplets["equivalent_diameter"].iloc[-1]
+    sigma = 2 * np.sqrt(2) / 3 * np.sqrt(kappa * beta)
+    expected = sigma / (2 * radius) / (2 * beta) / 2
+    assert note.figures["expected_shift"] == pytest.approx(expected, rel=1e-9)
+    assert "Gibbs-Thomson shift for the largest drop" in note.text
