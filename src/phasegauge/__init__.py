@@ -11,7 +11,7 @@ from .errors import (AnalysisError, FieldNotFoundError, FieldShapeError, InputEr
                      InputFileNotFound, OptionError, OutputError, PhasegaugeError,
                      PhasegaugeWarning, RangeWarning, NonFiniteWarning, SeriesError,
                      SkippedStepWarning, UnreadableFileError, UnsupportedMeshError,
-                     ResolutionWarning, SeriesWarning, MeshWarning)
+                     ResolutionWarning, SeriesWarning, MeshWarning, OldNameWarning)
 from .model.mesh import CellBlock, Mesh, RegularGrid
 from .model.indicator import Indicator, make_indicator, map_to_indicator, parse_range
 from .io import Series, Step, StepInfo, open_series
@@ -24,6 +24,7 @@ __all__ = [
     "OptionError", "OutputError", "PhasegaugeError", "PhasegaugeWarning", "RangeWarning",
     "NonFiniteWarning", "SeriesError", "SkippedStepWarning", "UnreadableFileError",
     "UnsupportedMeshError", "ResolutionWarning", "SeriesWarning", "MeshWarning",
+    "OldNameWarning",
     "CellBlock", "Mesh", "RegularGrid",
     "Indicator", "make_indicator", "map_to_indicator", "parse_range",
     "Series", "Step", "StepInfo", "open_series",

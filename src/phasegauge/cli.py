@@ -14,7 +14,7 @@ import warnings
 import click
 
 from . import __version__
-from .errors import PhasegaugeError, PhasegaugeWarning
+from .errors import OldNameWarning, PhasegaugeError, PhasegaugeWarning
 
 
 class _Group(click.Group):
@@ -179,6 +179,32 @@ _measure_options = (
 )
 
 
+def _old_flags(*flags):
+    """Hidden old flags, each read as its new option with a warning.
+
+    Each entry is ``(old flag, parameter of the new option, click type)``; put the
+    decorator right above the command function.
+    """
+    import functools
+
+    def wrap(f):
+        @functools.wraps(f)
+        def command(**kwargs):
+            for flag, name, _ in flags:
+                value = kwargs.pop("old_" + name)
+                if value is not None:
+                    new = "--" + name.replace("_", "-")
+                    warnings.warn(OldNameWarning(f"{flag} is the old name of {new}; write {new} (the old name "
+                                                 "will be removed)"), stacklevel=2)
+                    kwargs[name] = value
+            return f(**kwargs)
+
+        for flag, name, kind in reversed(flags):
+            command = click.option(flag, "old_" + name, type=kind, default=None, hidden=True)(command)
+        return command
+    return wrap
+
+
 def _add(options):
     def wrap(f):
         for opt in reversed(options):
@@ -196,16 +222,17 @@ def _add(options):
 @click.option("--adjacency", type=click.Choice(["face", "point"]), default="face", show_default=True,
               help="Cells that share a face (or an edge in 2D), or any point, belong to one droplet.")
 @click.option("--periodic", default="", help="Periodic axes for droplets, e.g. x,y.")
-@click.option("--ignore-remerge", type=int, default=0, show_default=True,
+@click.option("--ignore-remerge-within", "ignore_remerge_within", type=int, default=0, show_default=True,
               help="A breakup that merges again within this many steps is no event.")
 @click.option("--densities", default=None, help="Densities of the measured and the other phase, RHO1,RHO2.")
 @click.option("--diffusivity", type=float, default=None,
               help="Physical diffusivity or mobility to compare the numerical one with.")
 @click.option("--box", default=None, help="Region for the mixing figures: xmin,xmax,ymin,ymax[,zmin,zmax].")
-@click.option("--sections", "section_axis", type=click.Choice(["x", "y", "z"]), default=None,
+@click.option("--section-axis", "section_axis", type=click.Choice(["x", "y", "z"]), default=None,
               help="Cross-section profiles along this axis (mixing length).")
 @click.option("--section-count", type=int, default=20, show_default=True, help="Number of cross sections.")
-@click.option("--section-at", default=None, help="Cross-section positions, comma-separated (instead of a count).")
+@click.option("--section-positions", default=None,
+              help="Cross-section positions, comma-separated (instead of a count).")
 @click.option("--mixing-target", type=float, default=0.9, show_default=True,
               help="Mixing index that defines the mixing length.")
 @click.option("--segregation-scale", is_flag=True,
@@ -219,7 +246,8 @@ def _add(options):
 @click.option("--strict", is_flag=True, help="Stop at a bad step instead of skipping it.")
 @click.option("--keep-3d", is_flag=True,
               help="Measure a mesh one cell thick as 3D (by default: per unit depth, as 2D).")
-@click.option("--no-contours", is_flag=True, help="Do not write the interface geometry of every step.")
+@click.option("--contours/--no-contours", default=True, show_default=True,
+              help="Write the interface geometry of every step (contours/).")
 @click.option("--snapshots", type=int, default=4, show_default=True, help="Steps whose interface the report draws.")
 @click.option("--sort-by-time", is_flag=True,
               help="Order the steps by the times stored in their files, not by their names (default: refuse "
@@ -230,11 +258,13 @@ def _add(options):
               help="CSV of sample lines, 'name,x0,y0[,z0],x1,y1[,z1],points' (lines.csv).")
 @click.option("--measured", "measured_file", default=None,
               help="CSV of measured values, 'x,y[,z],value[,time][,uncertainty]' (validation.csv).")
+@_old_flags(("--ignore-remerge", "ignore_remerge_within", int), ("--sections", "section_axis", click.Choice("xyz")),
+            ("--section-at", "section_positions", str))
 def measure(path, field, value_range, phase, level, velocity, field_location, sort_by_time, out, analyses,
             adjacency, periodic,
-            ignore_remerge, densities, diffusivity, box, section_axis, section_count, section_at,
+            ignore_remerge_within, densities, diffusivity, box, section_axis, section_count, section_positions,
             mixing_target, segregation_scale, drift_tolerance, workers, scheduler, resume, overwrite, strict, keep_3d,
-            no_contours, snapshots, quiet, probe_file, line_file, measured_file):
+            contours, snapshots, quiet, probe_file, line_file, measured_file):
     """Measure interface, droplets, mixing and conservation on every step of PATH.
 
     PATH is a mesh file, an XDMF time series, a folder of numbered files, a
@@ -244,19 +274,19 @@ def measure(path, field, value_range, phase, level, velocity, field_location, so
     from .run.measure import MeasureOptions, measure as run_measure
 
     options = MeasureOptions(
-        field=field, value_range=value_range, phase=phase, level=level, velocity=velocity,
-        analyses=tuple(a.strip() for a in analyses.split(",") if a.strip()), connectivity=adjacency,
+        field=field, range=value_range, phase=phase, level=level, velocity=velocity,
+        analyses=tuple(a.strip() for a in analyses.split(",") if a.strip()), adjacency=adjacency,
         periodic=tuple(a.strip() for a in periodic.split(",") if a.strip()),
-        ignore_remerge_within=ignore_remerge, densities=_floats(densities, "--densities", 2),
+        ignore_remerge_within=ignore_remerge_within, densities=_floats(densities, "--densities", 2),
         diffusivity=diffusivity, box=_box(box), section_axis=section_axis, section_count=section_count,
-        section_positions=_floats(section_at, "--section-at"), mixing_target=mixing_target,
+        section_positions=_floats(section_positions, "--section-positions"), mixing_target=mixing_target,
         segregation_scale=segregation_scale,
         drift_tolerance=drift_tolerance, strict=strict, field_location=field_location or "auto",
         sort_by_time=sort_by_time, keep_3d=keep_3d,
         **_point_options(probe_file, line_file, measured_file))
     result = run_measure(path, options=options, out=out, workers=workers, scheduler=scheduler,
                          overwrite=overwrite, resume=resume, progress=None if not quiet else False,
-                         write_contours=not no_contours, snapshots=snapshots)
+                         contours=contours, snapshots=snapshots)
     _summary(result, out, quiet)
 
 
@@ -494,7 +524,7 @@ def convergence(fine, medium, coarse, field, value_range, phase, level, velocity
     if field is not None:
         from .run.options import MeasureOptions
 
-        options = MeasureOptions(field=field, value_range=value_range, phase=phase, level=level,
+        options = MeasureOptions(field=field, range=value_range, phase=phase, level=level,
                                  velocity=velocity,
                                  analyses=tuple(a.strip() for a in analyses.split(",") if a.strip()))
     result = grid_convergence_run(fine, medium, coarse, options=options,

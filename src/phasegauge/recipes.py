@@ -25,7 +25,7 @@ A measure recipe::
     box = [[0, 1], [0, 1], [-1, 1]]
     section_axis = "x"
     section_count = 20         # or section_positions = [...]
-    target = 0.9
+    mixing_target = 0.9
 
     [conservation]
     densities = [1000.0, 1.0]
@@ -56,7 +56,8 @@ with an optional ``label``), an optional ``[compare]`` table
 (``time_tolerance``, ``spacing``, ``level``, ``reference_table``,
 ``rising_bubble``), ``[run]`` and ``[output]``.
 
-Unknown tables and keys are refused with the nearest known name suggested.
+Unknown tables and keys are refused with the nearest known name suggested; an old
+key name (:data:`OLD_KEYS`) is read as its new one, with an :class:`~phasegauge.errors.OldNameWarning`.
 """
 
 from __future__ import annotations
@@ -65,9 +66,12 @@ import difflib
 import os
 import sys
 
-from .errors import InputFileNotFound, OptionError
+from .errors import InputFileNotFound, OldNameWarning, OptionError
 
-__all__ = ["load_recipe", "run_recipe", "RECIPE_SCHEMA", "COMPARE_SCHEMA", "CAMPAIGN_SCHEMA"]
+__all__ = ["load_recipe", "run_recipe", "RECIPE_SCHEMA", "COMPARE_SCHEMA", "CAMPAIGN_SCHEMA", "OLD_KEYS"]
+
+#: (table, old key) -> the key's one name (read with an OldNameWarning)
+OLD_KEYS = {("mixing", "target"): "mixing_target"}
 
 _INPUT = {"path": str, "field": str, "range": list, "phase": str, "velocity": str, "label": str,
           "field_location": str, "sort_by_time": bool}
@@ -77,7 +81,7 @@ RECIPE_SCHEMA = {
     "interface": {"level": (int, float), "diffusivity": (int, float), "contours": bool},
     "droplets": {"adjacency": str, "periodic": list, "ignore_remerge_within": int},
     "mixing": {"box": list, "section_axis": str, "section_count": int, "section_positions": list,
-               "target": (int, float), "segregation_scale": bool},
+               "mixing_target": (int, float), "segregation_scale": bool},
     "conservation": {"densities": list, "drift_tolerance": (int, float)},
     "run": {"analyses": list, "workers": int, "scheduler": str, "strict": bool, "snapshots": int},
     "output": {"folder": str, "overwrite": bool},
@@ -119,6 +123,21 @@ def _load_toml(path: str) -> dict:
                           fix="check quotes, brackets and '=' on the line named") from None
 
 
+def _rename_old_keys(data: dict, path: str) -> None:
+    """Read each old key (:data:`OLD_KEYS`) as its new name, with a warning; both at once is refused."""
+    import warnings
+
+    for (table, key), new in OLD_KEYS.items():
+        entries = data.get(table)
+        if not isinstance(entries, dict) or key not in entries:
+            continue
+        if new in entries:
+            raise OptionError(f"[{table}] has '{new}' and its old name '{key}'", where=path, fix=f"keep only {new}")
+        warnings.warn(OldNameWarning(f"[{table}] {key} is the old name of {new}; write {new} = ... (the old "
+                                     "name will be removed)", where=path), stacklevel=3)
+        entries[new] = entries.pop(key)
+
+
 def _suggest(name: str, known) -> str:
     close = difflib.get_close_matches(name, list(known), n=1, cutoff=0.5)
     return f"did you mean '{close[0]}'?" if close else "known: " + ", ".join(sorted(known))
@@ -143,6 +162,7 @@ def load_recipe(path) -> dict:
     data = _load_toml(path)
     kind = "compare" if ("first" in data or "second" in data) else ("campaign" if "runs" in data else "measure")
     schema = {"compare": COMPARE_SCHEMA, "campaign": CAMPAIGN_SCHEMA}.get(kind, RECIPE_SCHEMA)
+    _rename_old_keys(data, path)
     for table, entries in data.items():
         if kind == "campaign" and table == "runs":
             _check_runs(entries, path, data.get("input", {}))
@@ -189,13 +209,13 @@ def load_recipe(path) -> dict:
 
 
 #: recipe entry -> the measure option it sets (values are checked one entry at a time)
-_MEASURE_OPTION = {("input", "field"): "field", ("input", "range"): "value_range", ("input", "phase"): "phase",
+_MEASURE_OPTION = {("input", "field"): "field", ("input", "range"): "range", ("input", "phase"): "phase",
                    ("input", "velocity"): "velocity", ("interface", "level"): "level",
-                   ("interface", "diffusivity"): "diffusivity", ("droplets", "adjacency"): "connectivity",
+                   ("interface", "diffusivity"): "diffusivity", ("droplets", "adjacency"): "adjacency",
                    ("droplets", "periodic"): "periodic",
                    ("droplets", "ignore_remerge_within"): "ignore_remerge_within", ("mixing", "box"): "box",
                    ("mixing", "section_axis"): "section_axis", ("mixing", "section_count"): "section_count",
-                   ("mixing", "section_positions"): "section_positions", ("mixing", "target"): "mixing_target",
+                   ("mixing", "section_positions"): "section_positions", ("mixing", "mixing_target"): "mixing_target",
                    ("conservation", "densities"): "densities",
                    ("conservation", "drift_tolerance"): "drift_tolerance", ("run", "analyses"): "analyses"}
 
@@ -317,22 +337,22 @@ def measure_arguments(recipe: dict) -> dict:
     run = recipe.get("run", {})
     out = recipe["output"]
     options = MeasureOptions(
-        field=inp["field"], value_range=tuple(inp.get("range", (0.0, 1.0))), phase=inp.get("phase", "upper"),
+        field=inp["field"], range=tuple(inp.get("range", (0.0, 1.0))), phase=inp.get("phase", "upper"),
         level=iface.get("level", 0.5), velocity=inp.get("velocity"),
-        analyses=tuple(run.get("analyses", ANALYSES)), connectivity=drops.get("adjacency", "face"),
+        analyses=tuple(run.get("analyses", ANALYSES)), adjacency=drops.get("adjacency", "face"),
         periodic=tuple(drops.get("periodic", ())), ignore_remerge_within=drops.get("ignore_remerge_within", 0),
         densities=tuple(cons["densities"]) if "densities" in cons else None,
         diffusivity=iface.get("diffusivity"), box=tuple(map(tuple, mix["box"])) if "box" in mix else None,
         section_axis=mix.get("section_axis"), section_count=mix.get("section_count", 20),
         section_positions=tuple(mix["section_positions"]) if "section_positions" in mix else None,
-        mixing_target=mix.get("target", 0.9), segregation_scale=mix.get("segregation_scale", False),
+        mixing_target=mix.get("mixing_target", 0.9), segregation_scale=mix.get("segregation_scale", False),
         drift_tolerance=cons.get("drift_tolerance", 1e-3),
         strict=run.get("strict", False), field_location=inp.get("field_location", "auto"),
         sort_by_time=inp.get("sort_by_time", False), keep_3d=inp.get("keep_3d", False),
         **_point_options(recipe.get("validation", {})))
     return dict(path=inp.get("path"), options=options, out=out["folder"], overwrite=out.get("overwrite", False),
                 workers=run.get("workers", 1), scheduler=run.get("scheduler"),
-                write_contours=iface.get("contours", True), snapshots=run.get("snapshots", 4))
+                contours=iface.get("contours", True), snapshots=run.get("snapshots", 4))
 
 
 def _point_options(validation: dict) -> dict:
@@ -364,7 +384,7 @@ def run_recipe(path, *, overwrite=None, resume: bool = False, workers=None, prog
                             parameter=campaign.get("parameter", "parameter"), unit=campaign.get("unit", ""),
                             overwrite=kwargs["overwrite"] if overwrite is None else overwrite, resume=resume,
                             workers=kwargs["workers"] if workers is None else workers, progress=progress,
-                            write_contours=kwargs["write_contours"], snapshots=kwargs["snapshots"])
+                            contours=kwargs["contours"], snapshots=kwargs["snapshots"])
     from .run.compare import compare_runs, compare_arguments
 
     kwargs = compare_arguments(recipe)

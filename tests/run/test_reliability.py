@@ -595,9 +595,9 @@ def test_subprocess_error_and_warning_lines(tmp_path):
 REGION_CASES = {
     # name: (extra arguments, words the one line must hold); the mesh is the unit square
     "box outside the mesh": (["--box", "5,6,5,6"], ["s_0.vtu, step 0", "the box lies outside the mesh along x"]),
-    "sections outside the mesh": (["--sections", "x", "--section-at", "5,6"],
+    "sections outside the mesh": (["--section-axis", "x", "--section-positions", "5,6"],
                                   ["s_0.vtu, step 0", "section positions 5, 6 lie outside the mesh"]),
-    "positions without an axis": (["--section-at", "0.5"], ["without a section axis"]),
+    "positions without an axis": (["--section-positions", "0.5"], ["without a section axis"]),
     "negative snapshots": (["--snapshots", "-1"], ["snapshots must be a whole number of 0 or more"]),
 }
 

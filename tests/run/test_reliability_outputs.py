@@ -129,7 +129,7 @@ def test_interrupted_overwrite_is_finished_by_resume(tmp_path, monkeypatch):
 
     listing = _series(str(tmp_path / "in"), steps=4)
     out = tmp_path / "o"
-    measure(listing, "alpha", out=out, analyses=("conservation",), write_contours=False)
+    measure(listing, "alpha", out=out, analyses=("conservation",), contours=False)
     real = StepRunner.run
 
     def interrupted(runner, index):
@@ -139,11 +139,11 @@ def test_interrupted_overwrite_is_finished_by_resume(tmp_path, monkeypatch):
 
     monkeypatch.setattr(StepRunner, "run", interrupted)
     with pytest.raises(KeyboardInterrupt):
-        measure(listing, "alpha", out=out, overwrite=True, analyses=("conservation",), write_contours=False)
+        measure(listing, "alpha", out=out, overwrite=True, analyses=("conservation",), contours=False)
     # an interrupt keeps everything for --resume; the earlier run waits aside until this one finishes
     assert (out / _files.PREVIOUS_RUN / "steps.csv").exists()
     monkeypatch.setattr(StepRunner, "run", real)
-    result = measure(listing, "alpha", out=out, resume=True, analyses=("conservation",), write_contours=False)
+    result = measure(listing, "alpha", out=out, resume=True, analyses=("conservation",), contours=False)
     assert sum(r.reused for r in result.results) == 2
     assert not (out / _files.PREVIOUS_RUN).exists() and (out / "steps.csv").exists()
 

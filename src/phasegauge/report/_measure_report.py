@@ -105,7 +105,9 @@ def write_measure_report(out, result, *, series: dict, inputs: list, snapshots: 
     written.append("report.html")
     contours = sorted(os.listdir(os.path.join(out, "contours"))) if os.path.isdir(
         os.path.join(out, "contours")) else []
-    fields = {"series": dict(series), "options": _options_dict(result.options), "execution": execution,
+    execution = dict(execution)
+    options = {**_options_dict(result.options), "contours": execution.pop("contours", True)}
+    fields = {"series": dict(series), "options": options, "execution": execution,
               "skipped_steps": result.skipped, "warnings": list(step_warnings), "flags": result.flags,
               "interface_kind": (result.audit or {}).get("interface_kind")}
     timings = {"total_seconds": round(time.time() - started, 3), "report_seconds": round(time.time() - t0, 3),
@@ -179,7 +181,7 @@ def _page(result, series, pngs, execution, version) -> Page:
     opts = result.options
     page = Page("phasegauge measure report",
                 f"{series['path']} · {series['steps']} steps · field '{opts.field}' mapped from "
-                f"[{opts.value_range[0]:g}, {opts.value_range[1]:g}] ({opts.phase} phase) · "
+                f"[{opts.range[0]:g}, {opts.range[1]:g}] ({opts.phase} phase) · "
                 f"phasegauge {version}")
     page.heading("Findings")
     if result.flags:
@@ -210,7 +212,7 @@ def _page(result, series, pngs, execution, version) -> Page:
                                                                ("order", "step order")) if key in series],
                      ("analyses", ", ".join(opts.analyses)),
                      ("interface level", opts.level), ("velocity field", opts.velocity or "none"),
-                     ("droplet adjacency", opts.connectivity),
+                     ("droplet adjacency", opts.adjacency),
                      ("periodic axes", ", ".join(opts.periodic) or "none"),
                      ("workers", execution.get("workers")), ("scheduler", execution.get("scheduler") or "none")]
                     + ([("measured as", series["measured_as"])] if series.get("measured_as") else []))

@@ -130,7 +130,7 @@ def _compare_runs(first, second, *, out, overwrite, level, time_tolerance, spaci
     plan = plan_sampling(*open_both(), spacing=spacing, time_tolerance=time_tolerance)  # (closes them)
     runs = []
     for k, spec in enumerate((first, second)):
-        options = MeasureOptions(field=spec.field, value_range=spec.value_range, phase=spec.phase, level=level,
+        options = MeasureOptions(field=spec.field, range=spec.value_range, phase=spec.phase, level=level,
                                  velocity=spec.velocity, field_location=spec.field_location,
                                  sort_by_time=spec.sort_by_time)
         res = measure(spec.path, options=plan.options(options, k), workers=workers, progress=progress, snapshots=0)

@@ -26,7 +26,7 @@ from dataclasses import dataclass, field
 import numpy as np
 
 from ..errors import OptionError, PhasegaugeWarning, SeriesError
-from .options import ANALYSES, MeasureOptions, check_workers
+from .options import ANALYSES, OLD_OPTION_NAMES, MeasureOptions, check_workers, renamed_keywords
 from .step import StepResult, run_step
 
 __all__ = ["MeasureOptions", "StepResult", "MeasureResult", "measure", "run_step", "ANALYSES"]
@@ -87,7 +87,7 @@ class MeasureResult:
 
 def measure(path, field: str | None = None, *, options: MeasureOptions | None = None, out=None,
             workers: int = 1, scheduler: str | None = None, overwrite: bool = False,
-            resume: bool = False, progress: bool | None = False, write_contours: bool = True,
+            resume: bool = False, progress: bool | None = False, contours: bool = True,
             snapshots: int = 4, mesh_pool=None, **option_values) -> MeasureResult:
     """Run every analysis on every step of a series.
 
@@ -99,7 +99,9 @@ def measure(path, field: str | None = None, *, options: MeasureOptions | None = 
         Field mapped to the phase indicator (or give ``options``).
     options : MeasureOptions, optional
         All analysis options at once; otherwise built from ``field`` and
-        ``option_values`` (the fields of :class:`MeasureOptions`).
+        ``option_values`` (the fields of :class:`MeasureOptions`; a wrong name is
+        refused with the nearest one, an old name accepted with an
+        :class:`~phasegauge.errors.OldNameWarning`).
     out : str or os.PathLike, optional
         Output folder for tables, plots, contours, report and manifest.
         Without it nothing is written.
@@ -112,8 +114,9 @@ def measure(path, field: str | None = None, *, options: MeasureOptions | None = 
         :func:`phasegauge.report.prepare_output_folder`).
     progress : bool or None
         Show progress on stderr (None: only on a terminal).
-    write_contours : bool
-        Write the interface of every step as a VTK file under ``out/contours``.
+    contours : bool
+        Write the interface of every step as a VTK file under ``out/contours``
+        (old name ``write_contours``).
     snapshots : int
         Number of steps whose interface the report draws.
     mesh_pool : MeshPool, optional
@@ -147,6 +150,11 @@ def measure(path, field: str | None = None, *, options: MeasureOptions | None = 
     """
     from ..io import Series
 
+    own = ("path", "field", "options", "out", "workers", "scheduler", "overwrite", "resume", "progress",
+           "contours", "snapshots", "mesh_pool")
+    option_values = renamed_keywords(option_values, [f.name for f in dataclasses.fields(MeasureOptions)] + list(own),
+                                     old={**OLD_OPTION_NAMES, "write_contours": "contours"}, where="measure()")
+    contours = option_values.pop("contours", contours)
     if options is None:
         if field is None:
             raise OptionError("a field name is needed", fix="give field='NAME' (see phasegauge.describe_series)")
@@ -170,7 +178,7 @@ def measure(path, field: str | None = None, *, options: MeasureOptions | None = 
         with output_transaction(out) as txn:
             return _measure(series, options, out, txn, workers=workers, scheduler=scheduler,
                             overwrite=overwrite, resume=resume, progress=progress,
-                            write_contours=write_contours, snapshots=snapshots, notes=notes)
+                            contours=contours, snapshots=snapshots, notes=notes)
     finally:
         series.close()
 
@@ -215,7 +223,7 @@ def _records(caught) -> list:
 
 
 def _measure(series, options, out, txn, *, workers, scheduler, overwrite, resume, progress,
-             write_contours, snapshots, notes) -> MeasureResult:
+             contours, snapshots, notes) -> MeasureResult:
     from .assemble import TrackingFeed, assemble
     from .cache import StepCache
     from .executors import run_steps
@@ -232,7 +240,7 @@ def _measure(series, options, out, txn, *, workers, scheduler, overwrite, resume
         prepare_output_folder(out, overwrite=overwrite, resume=resume, run_key=run_key)
         cache = StepCache(os.path.join(os.fspath(out), ".cache"), options.key())
         txn.worth_keeping = cache.holds_finished_steps
-        if write_contours and "interface" in options.analyses:
+        if contours and "interface" in options.analyses:
             contour_dir = os.path.join(os.fspath(out), "contours")
             os.makedirs(contour_dir, exist_ok=True)
     runner = StepRunner(series.path, options, cache=cache, contour_dir=contour_dir,
@@ -256,7 +264,8 @@ def _measure(series, options, out, txn, *, workers, scheduler, overwrite, resume
         from ._report_data import measure_report_data
 
         write_measure_report(out, result, **measure_report_data(series, result), started=started,
-                             execution={"workers": workers, "scheduler": scheduler, "resume": resume})
+                             execution={"workers": workers, "scheduler": scheduler, "resume": resume,
+                                        "contours": bool(contours)})
     return result
 
 

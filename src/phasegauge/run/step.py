@@ -160,7 +160,7 @@ def analyse_step(step, options, *, contour_dir: str | None = None, reported_mesh
 
     step, flat = flatten_step(step, options)
     mesh = step.mesh
-    ind = make_indicator(mesh, step.fields, options.field, value_range=options.value_range,
+    ind = make_indicator(mesh, step.fields, options.field, value_range=options.range,
                          phase=options.phase, where=step.info.where, field_location=options.field_location)
     if ind.nonfinite == ind.cell.size or not np.isfinite(ind.cell).any():
         raise InputError(f"field '{options.field}' has no finite values (all NaN or Inf)", where=step.info.where,
@@ -198,7 +198,7 @@ def analyse_step(step, options, *, contour_dir: str | None = None, reported_mesh
             write_contour(contour, os.path.join(contour_dir, f"interface_{step.index:06d}.vtu"))
     if "droplets" in options.analyses:
         found = droplets_mod.label_droplets(
-            mesh, ind.cell, level=options.level, connectivity=options.connectivity, periodic=tuple(options.periodic),
+            mesh, ind.cell, level=options.level, connectivity=options.adjacency, periodic=tuple(options.periodic),
             velocity=u_cell, interface_cells=contour.cells, interface_sizes=contour.element_sizes)
         table = found.table
         m["droplet_count"] = int(found.count)
