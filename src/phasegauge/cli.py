@@ -20,6 +20,12 @@ from .errors import OldNameWarning, PhasegaugeError, PhasegaugeWarning
 class _Group(click.Group):
     """Click group that reports errors as one line."""
 
+    def parse_args(self, ctx, args):
+        ctx.meta["phasegauge.argv"] = list(args)  # the command line as typed, for the manifest
+        if "--debug" in args[1:]:  # accepted after the subcommand too
+            args = ["--debug"] + [a for a in args if a != "--debug"]
+        return super().parse_args(ctx, args)
+
     def invoke(self, ctx):
         debug = bool(ctx.params.get("debug"))
         previous = _stop_on_sigterm()
@@ -217,6 +223,11 @@ def _add(options):
 @click.argument("path")
 @_add(_measure_options)
 @click.option("--out", "-o", "out", required=True, help="Output folder.")
+@click.option("--steps", default=None,
+              help="Step numbers to measure: START:STOP:STRIDE (STOP excluded, as a Python slice) or one number.")
+@click.option("--time-from", type=float, default=None, help="Measure only steps at this time or later.")
+@click.option("--time-to", type=float, default=None, help="Measure only steps at this time or earlier.")
+@click.option("--every", type=int, default=1, show_default=True, help="Of the chosen steps, measure every k-th.")
 @click.option("--analyses", default=",".join(("interface", "droplets", "mixing", "conservation")),
               show_default=True, help="Comma-separated subset of the analyses to run.")
 @click.option("--adjacency", type=click.Choice(["face", "point"]), default="face", show_default=True,
@@ -249,6 +260,9 @@ def _add(options):
 @click.option("--contours/--no-contours", default=True, show_default=True,
               help="Write the interface geometry of every step (contours/).")
 @click.option("--snapshots", type=int, default=4, show_default=True, help="Steps whose interface the report draws.")
+@click.option("--plot-format", type=click.Choice(["png", "svg", "pdf"]), default="png", show_default=True,
+              help="File format of the plots.")
+@click.option("--keep-cache", is_flag=True, help="Keep OUT/.cache (the finished steps) after a complete run.")
 @click.option("--sort-by-time", is_flag=True,
               help="Order the steps by the times stored in their files, not by their names (default: refuse "
                    "a series whose times do not increase).")
@@ -260,11 +274,12 @@ def _add(options):
               help="CSV of measured values, 'x,y[,z],value[,time][,uncertainty]' (validation.csv).")
 @_old_flags(("--ignore-remerge", "ignore_remerge_within", int), ("--sections", "section_axis", click.Choice("xyz")),
             ("--section-at", "section_positions", str))
-def measure(path, field, value_range, phase, level, velocity, field_location, sort_by_time, out, analyses,
+def measure(path, field, value_range, phase, level, velocity, field_location, sort_by_time, out, steps, time_from,
+            time_to, every, analyses,
             adjacency, periodic,
             ignore_remerge_within, densities, diffusivity, box, section_axis, section_count, section_positions,
             mixing_target, segregation_scale, drift_tolerance, workers, scheduler, resume, overwrite, strict, keep_3d,
-            contours, snapshots, quiet, probe_file, line_file, measured_file):
+            contours, snapshots, plot_format, keep_cache, quiet, probe_file, line_file, measured_file):
     """Measure interface, droplets, mixing and conservation on every step of PATH.
 
     PATH is a mesh file, an XDMF time series, a folder of numbered files, a
@@ -282,12 +297,21 @@ def measure(path, field, value_range, phase, level, velocity, field_location, so
         section_positions=_floats(section_positions, "--section-positions"), mixing_target=mixing_target,
         segregation_scale=segregation_scale,
         drift_tolerance=drift_tolerance, strict=strict, field_location=field_location or "auto",
-        sort_by_time=sort_by_time, keep_3d=keep_3d,
+        sort_by_time=sort_by_time, keep_3d=keep_3d, steps=steps, time_from=time_from, time_to=time_to, every=every,
         **_point_options(probe_file, line_file, measured_file))
     result = run_measure(path, options=options, out=out, workers=workers, scheduler=scheduler,
                          overwrite=overwrite, resume=resume, progress=None if not quiet else False,
-                         contours=contours, snapshots=snapshots)
+                         contours=contours, snapshots=snapshots, invocation=_command_line(),
+                         plot_format=plot_format, keep_cache=keep_cache)
     _summary(result, out, quiet)
+
+
+def _command_line() -> dict:
+    """The command line as typed (for the manifest)."""
+    import shlex
+
+    argv = click.get_current_context().meta.get("phasegauge.argv", [])
+    return {"command_line": " ".join(shlex.quote(a) for a in ["phasegauge", *argv])}
 
 
 def _point_options(probe_file, line_file, measured_file) -> dict:
@@ -305,8 +329,7 @@ def _point_options(probe_file, line_file, measured_file) -> dict:
 
 
 def _summary(result, out, quiet):
-    if quiet:
-        return
+    """What the run found, on stdout (``-q`` hides the progress display, not this)."""
     if hasattr(result, "pairs"):
         click.echo(f"compared {len(result.pairs)} paired times; report: {os.path.join(out, 'report.html')}")
         return
@@ -330,8 +353,9 @@ def _summary(result, out, quiet):
 @click.option("--overwrite", is_flag=True, default=None, help="Replace an existing output folder.")
 @click.option("--resume", is_flag=True, help="Finish an interrupted run.")
 @click.option("--workers", "-j", type=int, default=None, help="Local worker processes (overrides the recipe).")
+@click.option("--strict", is_flag=True, default=None, help="Stop at a bad step instead of skipping it (overrides the recipe).")
 @click.option("--quiet", "-q", is_flag=True, help="No progress display.")
-def run(recipe, overwrite, resume, workers, quiet):
+def run(recipe, overwrite, resume, workers, strict, quiet):
     """Run a recipe file (TOML): a whole measure or compare run kept beside the case."""
     from .recipes import load_recipe, run_recipe
     from .report._files import output_transaction
@@ -342,7 +366,7 @@ def run(recipe, overwrite, resume, workers, quiet):
         raise OptionError("is a folder, not a recipe file", where=recipe, fix="give the .toml file itself")
     loaded = load_recipe(recipe)
     with output_transaction(loaded["output"]["folder"]):
-        result = run_recipe(recipe, overwrite=overwrite or None, resume=resume, workers=workers,
+        result = run_recipe(recipe, overwrite=overwrite or None, resume=resume, workers=workers, strict=strict or None,
                             progress=None if not quiet else False)
     _summary(result, loaded["output"]["folder"], quiet)
 
@@ -410,13 +434,22 @@ def equilibrium(model_file, temperature, temperatures, count, as_json, out, over
 
 
 @main.command()
-@click.argument("directory")
+@click.argument("directory", required=False)
 @click.option("--only", default=None, help="Comma-separated names of the series to write (default: all).")
 @click.option("--overwrite", is_flag=True, help="Replace series already in DIRECTORY.")
-def samples(directory, only, overwrite):
+@click.option("--list", "list_names", is_flag=True, help="Print the names of the series and write nothing.")
+def samples(directory, only, overwrite, list_names):
     """Write the demo series (computed by the generators, seeded) into DIRECTORY."""
-    from .errors import OutputError
+    from .errors import OptionError, OutputError
     from .samples import SAMPLE_NAMES, write_samples
+
+    if list_names:
+        for name in SAMPLE_NAMES:
+            click.echo(name)
+        return
+    if directory is None:
+        raise OptionError("no folder to write the series into", fix="give a folder: phasegauge samples DIR "
+                          "(or --list for the names)")
 
     names = [n.strip() for n in only.split(",")] if only else list(SAMPLE_NAMES)
     unknown = [n for n in names if n not in SAMPLE_NAMES]

@@ -10,6 +10,9 @@ A measure recipe::
     velocity = "velocity"      # optional
     field_location = "cell"    # optional: which copy of a field written on cells and points
     sort_by_time = false       # optional: order the steps by the times in their files
+    steps = "0:100:5"          # optional: step numbers START:STOP:STRIDE (STOP excluded)
+    time_from = 0.5            # optional: only steps within [time_from, time_to]
+    every = 2                  # optional: then every 2nd of those
 
     [interface]                # optional tables; leaving a table out keeps the defaults
     level = 0.5
@@ -41,6 +44,8 @@ A measure recipe::
     [output]
     folder = "../out/filament"      # relative to the recipe
     overwrite = true
+    plot_format = "png"             # or "svg", "pdf"
+    keep_cache = false              # keep .cache/ (the finished steps) after a complete run
 
     [validation]               # optional; CSV files relative to the recipe
     probes = "probes.csv"      # name,x,y[,z]
@@ -65,26 +70,28 @@ from __future__ import annotations
 import difflib
 import os
 import sys
+from types import MappingProxyType
 
 from .errors import InputFileNotFound, OldNameWarning, OptionError
 
 __all__ = ["load_recipe", "run_recipe", "RECIPE_SCHEMA", "COMPARE_SCHEMA", "CAMPAIGN_SCHEMA", "OLD_KEYS"]
 
 #: (table, old key) -> the key's one name (read with an OldNameWarning)
-OLD_KEYS = {("mixing", "target"): "mixing_target"}
+OLD_KEYS = MappingProxyType({("mixing", "target"): "mixing_target"})
 
 _INPUT = {"path": str, "field": str, "range": list, "phase": str, "velocity": str, "label": str,
           "field_location": str, "sort_by_time": bool}
 
 RECIPE_SCHEMA = {
-    "input": {**_INPUT, "keep_3d": bool},
+    "input": {**_INPUT, "keep_3d": bool, "steps": str, "time_from": (int, float), "time_to": (int, float),
+              "every": int},
     "interface": {"level": (int, float), "diffusivity": (int, float), "contours": bool},
     "droplets": {"adjacency": str, "periodic": list, "ignore_remerge_within": int},
     "mixing": {"box": list, "section_axis": str, "section_count": int, "section_positions": list,
                "mixing_target": (int, float), "segregation_scale": bool},
     "conservation": {"densities": list, "drift_tolerance": (int, float)},
     "run": {"analyses": list, "workers": int, "scheduler": str, "strict": bool, "snapshots": int},
-    "output": {"folder": str, "overwrite": bool},
+    "output": {"folder": str, "overwrite": bool, "plot_format": str, "keep_cache": bool},
     "validation": {"probes": str, "lines": str, "measured": str},
 }
 
@@ -205,6 +212,9 @@ def load_recipe(path) -> dict:
         _point_options(data["validation"])  # the files are read and checked before any work
     data["kind"] = kind
     data["base"] = base
+    with open(path, encoding="utf-8", errors="replace") as handle:
+        data["recipe_text"] = handle.read()
+    data["recipe_path"] = os.path.abspath(path)
     return data
 
 
@@ -217,7 +227,9 @@ _MEASURE_OPTION = {("input", "field"): "field", ("input", "range"): "range", ("i
                    ("mixing", "section_axis"): "section_axis", ("mixing", "section_count"): "section_count",
                    ("mixing", "section_positions"): "section_positions", ("mixing", "mixing_target"): "mixing_target",
                    ("conservation", "densities"): "densities",
-                   ("conservation", "drift_tolerance"): "drift_tolerance", ("run", "analyses"): "analyses"}
+                   ("conservation", "drift_tolerance"): "drift_tolerance", ("run", "analyses"): "analyses",
+                   ("input", "steps"): "steps", ("input", "time_from"): "time_from", ("input", "time_to"): "time_to",
+                   ("input", "every"): "every", ("run", "strict"): "strict"}
 
 
 #: how an entry is written, for a value of the wrong form
@@ -348,11 +360,14 @@ def measure_arguments(recipe: dict) -> dict:
         mixing_target=mix.get("mixing_target", 0.9), segregation_scale=mix.get("segregation_scale", False),
         drift_tolerance=cons.get("drift_tolerance", 1e-3),
         strict=run.get("strict", False), field_location=inp.get("field_location", "auto"),
-        sort_by_time=inp.get("sort_by_time", False), keep_3d=inp.get("keep_3d", False),
+        sort_by_time=inp.get("sort_by_time", False), keep_3d=inp.get("keep_3d", False), steps=inp.get("steps"),
+        time_from=inp.get("time_from"), time_to=inp.get("time_to"), every=inp.get("every", 1),
         **_point_options(recipe.get("validation", {})))
     return dict(path=inp.get("path"), options=options, out=out["folder"], overwrite=out.get("overwrite", False),
                 workers=run.get("workers", 1), scheduler=run.get("scheduler"),
-                contours=iface.get("contours", True), snapshots=run.get("snapshots", 4))
+                contours=iface.get("contours", True), snapshots=run.get("snapshots", 4),
+                plot_format=out.get("plot_format", "png"), keep_cache=out.get("keep_cache", False),
+                invocation={"recipe": recipe.get("recipe_text", ""), "recipe_path": recipe.get("recipe_path", "")})
 
 
 def _point_options(validation: dict) -> dict:
@@ -363,9 +378,14 @@ def _point_options(validation: dict) -> dict:
     return {key: readers[key](path) for key, path in validation.items()}
 
 
-def run_recipe(path, *, overwrite=None, resume: bool = False, workers=None, progress=None):
-    """Run a recipe file; returns the measure or compare result."""
+def run_recipe(path, *, overwrite=None, resume: bool = False, workers=None, progress=None, strict=None):
+    """Run a recipe file; returns the measure or compare result.
+
+    ``overwrite``, ``workers`` and ``strict`` override the recipe's entries when given.
+    """
     recipe = load_recipe(path)
+    if strict is not None and recipe["kind"] != "compare":
+        recipe.setdefault("run", {})["strict"] = bool(strict)
     if recipe["kind"] == "measure":
         from .run.measure import measure
 

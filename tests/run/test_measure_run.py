@@ -54,7 +54,8 @@ def test_measure_writes_every_output(tmp_path):
     for name in ("steps.csv", "droplets.csv", "events.csv", "report.html", "manifest.json",
                  "phase_volume_drift.png", "interface_width.png", "droplet_count.png"):
         assert (out / name).exists(), name
-    assert len(os.listdir(out / "contours")) == 6
+    assert len([f for f in os.listdir(out / "contours") if f.endswith(".vtu")]) == 6
+    assert (out / "contours" / "interface.steps").exists() and not (out / ".cache").exists()
     steps = pd.read_csv(out / "steps.csv")
     assert list(steps.columns[:4]) == ["step", "time", "phase_volume", "phase_volume_drift"]
     assert list(steps["time"]) == pytest.approx([0.1 * k for k in range(6)])

@@ -4,9 +4,11 @@ command line, a recipe and the Python API, and the old names still give it (with
 import json
 import os
 import re
+import shlex
 import warnings
 
 import numpy as np
+import pandas as pd
 import pytest
 from click.testing import CliRunner
 
@@ -28,6 +30,10 @@ VALUES = {
     "field_location": (["--field-location", "cell"], "input", '"cell"', "cell"),
     "sort_by_time": (["--sort-by-time"], "input", "true", True),
     "keep_3d": (["--keep-3d"], "input", "true", True),
+    "steps": (["--steps", "0:4"], "input", '"0:4"', "0:4"),
+    "time_from": (["--time-from", "0.05"], "input", "0.05", 0.05),
+    "time_to": (["--time-to", "0.3"], "input", "0.3", 0.3),
+    "every": (["--every", "2"], "input", "2", 2),
     "level": (["--level", "0.4"], "interface", "0.4", 0.4),
     "diffusivity": (["--diffusivity", "1e-4"], "interface", "1e-4", 1e-4),
     "contours": (["--no-contours"], "interface", "false", False),
@@ -46,6 +52,8 @@ VALUES = {
                  '["mixing", "interface", "droplets", "conservation"]', ("mixing", "interface", "droplets",
                                                                          "conservation")),
     "strict": (["--strict"], "run", "true", True),
+    "plot_format": (["--plot-format", "svg"], "output", '"svg"', "svg"),
+    "keep_cache": (["--keep-cache"], "output", "true", True),
 }
 
 
@@ -62,7 +70,7 @@ def _readme_table():
     return rows
 
 
-def _series(folder, steps=3, n=12):
+def _series(folder, steps=4, n=12):
     mesh = grid_mesh((n, n), kind="triangle")
     x, y = mesh.cell_centroids[:, 0], mesh.cell_centroids[:, 1]
     lines = []
@@ -83,7 +91,7 @@ def _recipe(path, listing, out, entries):
     for table, key, value in entries:
         tables.setdefault(table, []).append(f"{key} = {value}")
     tables.setdefault("input", []).insert(0, f'path = "{listing}"')
-    tables["output"] = [f'folder = "{out}"']
+    tables.setdefault("output", []).insert(0, f'folder = "{out}"')
     text = "\n".join(f"[{t}]\n" + "\n".join(lines) for t, lines in tables.items()) + "\n"
     with open(path, "w") as handle:
         handle.write(text)
@@ -108,6 +116,7 @@ def test_readme_table_names_every_option():
     fields = {f.name for f in __import__("dataclasses").fields(MeasureOptions)}
     assert set(names) == set(VALUES)
     assert fields - {"probes", "lines", "measured"} <= set(names)
+    assert {"contours", "plot_format", "keep_cache"} <= set(names)
     for name, flag, recipe, manifest_key, _ in rows:
         name = name.strip("`")
         assert manifest_key == f"`{name}`"
@@ -130,6 +139,13 @@ def test_every_name_gives_one_manifest_entry(tmp_path):
         assert cli[name] == rec[name] == api[name], name
     assert api["contours"] is False and api["adjacency"] == "point" and api["range"] == [-0.1, 1.1]
     assert not os.path.isdir(tmp_path / "api" / "contours")
+    assert (tmp_path / "api" / "phase_volume_drift.svg").exists() and (tmp_path / "api" / ".cache").is_dir()
+    assert list(pd.read_csv(tmp_path / "api" / "steps.csv")["step"]) == [1, 3]  # times 0.1, 0.3; every 2nd
+    invocations = [json.load(open(tmp_path / k / "manifest.json"))["invocation"] for k in ("cli", "recipe", "api")]
+    assert invocations[0]["command_line"] == shlex.join(["phasegauge", "measure", listing, "-o",
+                                                          str(tmp_path / "cli"), *args])
+    assert invocations[1]["recipe"] == open(recipe).read() and invocations[1]["recipe_path"] == recipe
+    assert invocations[2] == {"python": "phasegauge.measure"}
 
 
 def test_old_names_give_the_same_manifest_entry(tmp_path):
@@ -153,6 +169,7 @@ def test_old_names_give_the_same_manifest_entry(tmp_path):
     with pytest.warns(OldNameWarning, match=r"\[mixing\] target is the old name of mixing_target"):
         run_recipe(recipe)
     assert _options(tmp_path / "rec_old")["mixing_target"] == 0.8
+    assert not (tmp_path / "rec_old" / ".cache").exists()  # removed after a complete run without keep_cache
 
 
 def test_old_flag_is_hidden_from_help():
@@ -174,3 +191,32 @@ def test_wrong_keyword_names_the_nearest(tmp_path, wrong, nearest):
 def test_old_and_new_name_together_are_refused():
     with pytest.raises(OptionError, match="got 'range' and its old name 'value_range'"):
         MeasureOptions(field="c", range=(0, 1), value_range=(0, 1))
+
+
+@pytest.mark.parametrize("choice, expected", [
+    (dict(steps="0:10:3"), [0, 3, 6, 9]), (dict(steps="4"), [4]), (dict(steps="8:"), [8, 9]),
+    (dict(time_from=0.25, time_to=0.55), [3, 4, 5]), (dict(steps=":6", every=2), [0, 2, 4]),
+    (dict(time_from=0.3, every=3), [3, 6, 9])])
+def test_step_choice(choice, expected):
+    """Python's own slicing of range(10) is the reference for START:STOP:STRIDE."""
+    from phasegauge.run._selection import chosen_steps
+
+    times = [0.1 * k for k in range(10)]
+    assert chosen_steps(times, **choice) == expected
+    if "steps" in choice and ":" in choice["steps"]:
+        assert expected[::1] == list(range(10))[slice(*[int(p) if p else None for p in choice["steps"].split(":")])][
+            ::choice.get("every", 1)]
+
+
+@pytest.mark.parametrize("choice, message", [
+    (dict(steps="a:b"), "steps must be START:STOP:STRIDE"), (dict(steps="0:10:0"), "stride of steps must be"),
+    (dict(time_from=2.0, time_to=1.0), "lies after time_to"), (dict(every=0), "every must be a whole number")])
+def test_bad_step_choice_is_refused(choice, message):
+    with pytest.raises(OptionError, match=message):
+        MeasureOptions(field="c", **choice)
+
+
+def test_step_choice_that_leaves_nothing_names_the_series(tmp_path):
+    listing = _series(str(tmp_path), steps=2)
+    with pytest.raises(OptionError, match=r"leaves no step \(the series has 2 steps numbered from 0, times 0 to 0.1\)"):
+        measure(listing, "alpha", steps="5:", out=tmp_path / "o")

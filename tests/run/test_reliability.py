@@ -642,9 +642,9 @@ def test_a_resume_refuses_a_step_whose_file_changed_and_says_when_nothing_is_lef
     the file changed since the interrupted run: refused, not silently mixed."""
     folder = _folder(tmp_path, "in", count=3)
     out = tmp_path / "o"
-    code, err, _ = _cli(["measure", folder, "-f", "alpha", "-o", out, "--quiet"])
+    code, err, _ = _cli(["measure", folder, "-f", "alpha", "-o", out, "--quiet", "--keep-cache"])
     assert code == 0, err
-    code, err, stdout = _cli(["measure", folder, "-f", "alpha", "-o", out, "--resume"])
+    code, err, stdout = _cli(["measure", folder, "-f", "alpha", "-o", out, "--resume", "--keep-cache"])
     assert code == 0, err
     assert "every step was finished before, nothing was computed again" in stdout
     _good(os.path.join(folder, "s_1.vtu"), cell={"alpha": 0.5 * DISC})

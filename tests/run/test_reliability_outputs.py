@@ -151,7 +151,7 @@ def test_interrupted_overwrite_is_finished_by_resume(tmp_path, monkeypatch):
 def test_resume_removes_temporaries_of_a_killed_run(tmp_path):
     listing = _series(str(tmp_path / "in"), steps=2, n=6)
     out = tmp_path / "o"
-    assert _cli(["measure", listing, "-f", "alpha", "-o", out] + FAST)[0] == 0
+    assert _cli(["measure", listing, "-f", "alpha", "-o", out, "--keep-cache"] + FAST)[0] == 0
     (out / ".cache" / ".tmp-abcdstep_000001.pkl.part").write_bytes(b"half")
     (out / ".tmp-xyzsteps.csv.part").write_text("half")
     assert _cli(["measure", listing, "-f", "alpha", "-o", out, "--resume"] + FAST)[0] == 0

@@ -98,7 +98,7 @@ def test_resume_tracks_from_the_cache_without_reading_a_step(series_dir, serial,
     from phasegauge.io import Series
 
     out = tmp_path / "out"
-    measure(series_dir, "alpha", velocity="U", analyses=("droplets",), out=out, contours=False)
+    measure(series_dir, "alpha", velocity="U", analyses=("droplets",), out=out, contours=False, keep_cache=True)
 
     def no_reading(self, index):
         raise AssertionError(f"step {index} was read again")

@@ -88,7 +88,8 @@ class MeasureResult:
 def measure(path, field: str | None = None, *, options: MeasureOptions | None = None, out=None,
             workers: int = 1, scheduler: str | None = None, overwrite: bool = False,
             resume: bool = False, progress: bool | None = False, contours: bool = True,
-            snapshots: int = 4, mesh_pool=None, **option_values) -> MeasureResult:
+            snapshots: int = 4, mesh_pool=None, invocation: dict | None = None, plot_format: str = "png",
+            keep_cache: bool = False, **option_values) -> MeasureResult:
     """Run every analysis on every step of a series.
 
     Parameters
@@ -123,6 +124,14 @@ def measure(path, field: str | None = None, *, options: MeasureOptions | None = 
         Where the meshes of the series are kept (see :class:`phasegauge.io.MeshPool`);
         pass the pool of an earlier run on the same meshes to reuse their cached
         work (local workers inherit it). Default: a pool of this run.
+    plot_format : {'png', 'svg', 'pdf'}
+        File format of the plots (the report page embeds PNG images either way).
+    keep_cache : bool
+        Keep ``out/.cache`` (the finished steps) after a complete run; by default it is
+        removed once the report is written (an interrupted run always keeps it, for ``resume``).
+    invocation : dict, optional
+        How the run was asked for, kept in the manifest: ``{'command_line': ...}`` or
+        ``{'recipe': text, 'recipe_path': ...}``. Default: ``{'python': 'phasegauge.measure'}``.
 
     Returns
     -------
@@ -151,7 +160,7 @@ def measure(path, field: str | None = None, *, options: MeasureOptions | None = 
     from ..io import Series
 
     own = ("path", "field", "options", "out", "workers", "scheduler", "overwrite", "resume", "progress",
-           "contours", "snapshots", "mesh_pool")
+           "contours", "snapshots", "mesh_pool", "invocation", "plot_format", "keep_cache")
     option_values = renamed_keywords(option_values, [f.name for f in dataclasses.fields(MeasureOptions)] + list(own),
                                      old={**OLD_OPTION_NAMES, "write_contours": "contours"}, where="measure()")
     contours = option_values.pop("contours", contours)
@@ -163,6 +172,14 @@ def measure(path, field: str | None = None, *, options: MeasureOptions | None = 
         options = dataclasses.replace(options, **({"field": field} if field else {}), **option_values)
     workers = check_workers(workers)
     check_snapshots(snapshots)
+    from .executors import check_scheduler
+
+    check_scheduler(scheduler)
+    from ..report._files import PLOT_FORMATS
+
+    if plot_format not in PLOT_FORMATS:
+        raise OptionError(f"plot format must be one of {', '.join(PLOT_FORMATS)}, found {plot_format!r}",
+                          fix="for example --plot-format svg")
     path = os.fspath(path)
     with warnings.catch_warnings(record=True) as caught:
         warnings.simplefilter("always")
@@ -178,7 +195,9 @@ def measure(path, field: str | None = None, *, options: MeasureOptions | None = 
         with output_transaction(out) as txn:
             return _measure(series, options, out, txn, workers=workers, scheduler=scheduler,
                             overwrite=overwrite, resume=resume, progress=progress,
-                            contours=contours, snapshots=snapshots, notes=notes)
+                            contours=contours, snapshots=snapshots, notes=notes,
+                            invocation=invocation or {"python": "phasegauge.measure"},
+                            output={"plot_format": plot_format, "keep_cache": bool(keep_cache)})
     finally:
         series.close()
 
@@ -223,15 +242,18 @@ def _records(caught) -> list:
 
 
 def _measure(series, options, out, txn, *, workers, scheduler, overwrite, resume, progress,
-             contours, snapshots, notes) -> MeasureResult:
+             contours, snapshots, notes, invocation, output) -> MeasureResult:
     from .assemble import TrackingFeed, assemble
     from .cache import StepCache
     from .executors import run_steps
     from .progress import Progress
+    from ._selection import chosen_steps
     from .step import StepRunner
 
-    n = len(series)
     started = time.time()
+    indices = chosen_steps(series.times, steps=options.steps, time_from=options.time_from,
+                           time_to=options.time_to, every=options.every, where=series.path)
+    n = len(indices)
     cache = contour_dir = None
     if out is not None:
         from ..report._files import prepare_output_folder
@@ -244,11 +266,11 @@ def _measure(series, options, out, txn, *, workers, scheduler, overwrite, resume
             contour_dir = os.path.join(os.fspath(out), "contours")
             os.makedirs(contour_dir, exist_ok=True)
     runner = StepRunner(series.path, options, cache=cache, contour_dir=contour_dir,
-                        keep=snapshot_steps(n, snapshots), series=series)
-    feed = TrackingFeed(options, range(n), cache=cache)
+                        keep={indices[k] for k in snapshot_steps(n, snapshots)}, series=series)
+    feed = TrackingFeed(options, indices, cache=cache)
     before = input_stamps(series)
     bar = Progress(n, "steps", enabled=progress)
-    results = run_steps(runner, range(n), workers=workers, scheduler=scheduler, feed=feed, progress=bar)
+    results = run_steps(runner, indices, workers=workers, scheduler=scheduler, feed=feed, progress=bar)
     bar.close()
     _check_read_times(results, options)
     changed = [path for path, stamp in input_stamps(series).items() if before.get(path) != stamp]
@@ -257,6 +279,8 @@ def _measure(series, options, out, txn, *, workers, scheduler, overwrite, resume
                           f"{'them' if len(changed) != 1 else 'it'} ({_short_list(changed)}), so the steps may "
                           "mix old and new content", where=series.path,
                           fix="run again once the solver has finished writing (--overwrite)")
+    if contour_dir is not None:
+        _write_contour_listing(contour_dir, results)
     result = assemble(series, results, options, notes=notes, feed=feed, mesh_pool=runner.mesh_pool)
     result.reading = _reading(series, results)
     if out is not None:
@@ -265,8 +289,28 @@ def _measure(series, options, out, txn, *, workers, scheduler, overwrite, resume
 
         write_measure_report(out, result, **measure_report_data(series, result), started=started,
                              execution={"workers": workers, "scheduler": scheduler, "resume": resume,
-                                        "contours": bool(contours)})
+                                        "contours": bool(contours), "invocation": invocation, **output})
+        if not output["keep_cache"]:
+            import shutil
+
+            shutil.rmtree(os.path.join(os.fspath(out), ".cache"), ignore_errors=True)
     return result
+
+
+#: the step listing written beside the contour files
+CONTOUR_LISTING = "interface.steps"
+
+
+def _write_contour_listing(contour_dir: str, results) -> None:
+    """``contours/interface.steps``: a ``time,path`` line per contour file, so the folder reads as a series."""
+    from ..report._files import atomic_write_text
+
+    lines = ["time,path"]
+    for r in sorted(results, key=lambda r: r.index):
+        name = f"interface_{r.index:06d}.vtu"
+        if r.skipped is None and np.isfinite(r.time) and os.path.exists(os.path.join(contour_dir, name)):
+            lines.append(f"{float(r.time)!r},{name}")
+    atomic_write_text(os.path.join(contour_dir, CONTOUR_LISTING), "\n".join(lines) + "\n")
 
 
 def _reading(series, results) -> list:

@@ -14,6 +14,7 @@ import hashlib
 import json
 import warnings
 from dataclasses import dataclass
+from types import MappingProxyType
 
 from ..errors import FieldNotFoundError, FieldShapeError, OldNameWarning, OptionError
 from ..model.axes import AXIS_INDEX
@@ -23,7 +24,7 @@ __all__ = ["MeasureOptions", "ANALYSES", "STEP_COLUMNS", "OLD_OPTION_NAMES", "ch
            "wrong_field_option", "renamed_keywords"]
 
 #: old keyword -> the one name of the option (the old one is accepted with an OldNameWarning)
-OLD_OPTION_NAMES = {"value_range": "range", "connectivity": "adjacency"}
+OLD_OPTION_NAMES = MappingProxyType({"value_range": "range", "connectivity": "adjacency"})
 
 
 def renamed_keywords(given: dict, known, *, old=None, where: str = "", stacklevel: int = 3) -> dict:
@@ -154,6 +155,13 @@ class MeasureOptions:
         Points where the field and c are kept at every step (``probes.csv``).
     lines : tuple of (name, x0, y0, z0, x1, y1, z1, points)
         Straight lines sampled at evenly spaced points at every step (``lines.csv``).
+    steps : str or None
+        Step numbers to measure, ``START:STOP:STRIDE`` (STOP excluded, as a Python
+        slice) or one number; None for all.
+    time_from, time_to : float or None
+        Measure only steps whose time lies within these bounds (inclusive).
+    every : int
+        Of the steps left, measure every ``every``-th (see :mod:`phasegauge.run._selection`).
     measured : tuple of (x, y, z, value, time, uncertainty)
         Measured values the run is checked against (``validation.csv``); time and
         uncertainty may be NaN (see :func:`phasegauge.io.read_measured_file`).
@@ -178,6 +186,10 @@ class MeasureOptions:
     segregation_scale: bool = False
     drift_tolerance: float = 1e-3
     strict: bool = False
+    steps: str | None = None
+    time_from: float | None = None
+    time_to: float | None = None
+    every: int = 1
     field_location: str = "auto"
     sort_by_time: bool = False
     keep_3d: bool = False
@@ -198,6 +210,13 @@ class MeasureOptions:
         if not isinstance(self.field, str) or not self.field:
             raise OptionError("a field name is needed", fix="give --field NAME (see 'phasegauge inspect')")
         set_(self, "range", parse_range(self.range))
+        from ._selection import normalize_selection, normalize_steps
+
+        set_(self, "steps", normalize_steps(self.steps))
+        time_from, time_to, every = normalize_selection(self.time_from, self.time_to, self.every)
+        set_(self, "time_from", time_from)
+        set_(self, "time_to", time_to)
+        set_(self, "every", every)
         set_(self, "phase", normalize_phase(self.phase))
         level = float(self.level)
         if not 0.0 < level < 1.0:

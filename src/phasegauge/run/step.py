@@ -195,7 +195,8 @@ def analyse_step(step, options, *, contour_dir: str | None = None, reported_mesh
         if contour_dir is not None:
             from ..io import write_contour
 
-            write_contour(contour, os.path.join(contour_dir, f"interface_{step.index:06d}.vtu"))
+            write_contour(contour, os.path.join(contour_dir, f"interface_{step.index:06d}.vtu"), time=step.time,
+                          step=step.index)
     if "droplets" in options.analyses:
         found = droplets_mod.label_droplets(
             mesh, ind.cell, level=options.level, connectivity=options.adjacency, periodic=tuple(options.periodic),
