@@ -11,7 +11,7 @@ from __future__ import annotations
 import numpy as np
 
 from ..errors import OptionError
-from ._canvas import new_figure
+from ._canvas import legend_outside, new_figure
 
 __all__ = ["plot_interface_overlay", "plot_metric_curves", "plot_metric_differences",
            "plot_shape_history", "plot_reference_check"]
@@ -61,7 +61,7 @@ def plot_interface_overlay(mismatch, extent, segments_a, segments_b, *, labels=(
     ax.set_ylim(y0, y1)
     ax.set_xlabel(axis_names[0])
     ax.set_ylabel(axis_names[1])
-    ax.legend(loc="upper right", fontsize=8)
+    legend_outside(ax)
     heading = title or f"interfaces c = {level:g}"
     ax.set_title(heading + " (shaded: phases differ)", fontsize=10)
     return fig
@@ -110,7 +110,7 @@ def plot_metric_curves(comparison, *, metrics=None, labels=("A", "B")):
         ax.plot(t, comparison[f"{name}_b"], "--s", ms=2.5, color="tab:red", label=labels[1])
         ax.set_title(name, fontsize=9)
         ax.set_xlabel("time")
-        ax.legend(fontsize=7)
+        legend_outside(ax)
     return fig
 
 
