@@ -179,6 +179,7 @@ def _key_figures(result) -> list:
     add("droplets, first step", "droplet_count", lambda v: v[0])
     add("droplets, last step", "droplet_count", lambda v: v[-1])
     add("mixing index, last step", "mixing_index", lambda v: v[-1])
+    add("mixing length, first step", "mixing_length", lambda v: v[0])
     add("mixing length, last step", "mixing_length", lambda v: v[-1])
     audit = result.audit or {}
     if audit.get("interface_kind") in ("diffuse", "sharp"):

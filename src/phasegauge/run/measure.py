@@ -114,7 +114,8 @@ def measure(path, field: str | None = None, *, options: MeasureOptions | None = 
         What to do with an existing output folder (see
         :func:`phasegauge.report.prepare_output_folder`).
     progress : bool or None
-        Show progress on stderr (None: only on a terminal).
+        Show progress on stderr (None: a live line on a terminal, a whole line every few
+        seconds otherwise, as in a batch log).
     contours : bool
         Write the interface of every step as a VTK file under ``out/contours``
         (old name ``write_contours``).
