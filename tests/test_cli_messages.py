@@ -60,3 +60,16 @@ def test_missing_dask_is_reported_before_any_step(tmp_path, monkeypatch):
                                        "--scheduler", "local", "-q"])
     assert result.exit_code == 2 and 'pip install ".[cluster]"' in result.output
     assert not (tmp_path / "o").exists()  # nothing started
+
+
+def test_inspect_help_lists_the_readme_formats():
+    """The suffixes the README names for PATH, and every suffix the format registry reads."""
+    import re
+
+    from phasegauge.io import MESH_SUFFIXES
+
+    text = " ".join(CliRunner().invoke(main, ["inspect", "--help"]).output.split())
+    readme = open(__file__.rsplit("/tests/", 1)[0] + "/README.md", encoding="utf-8").read()
+    named = set(re.findall(r"`(\.[a-z]{3,4})`", readme.split("`PATH` is one mesh file", 1)[1][:400]))
+    assert named and all(suffix in text for suffix in named)
+    assert {".vtu", ".vtk", ".xdmf", ".vtm"} <= set(MESH_SUFFIXES)

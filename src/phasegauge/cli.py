@@ -124,8 +124,9 @@ def main(ctx, debug):
 def inspect(path, as_json, scan, sort_by_time):
     """Describe a series: steps, times, mesh and fields.
 
-    PATH is a mesh file (.vtu, .vtk, .xdmf), an XDMF time series, a folder of
-    numbered files, a quoted glob or a 'time,path' step listing.
+    PATH is a mesh file (.vtu, .vtk, .xdmf, .xmf; structured .vti, .vtr, .vts;
+    VTK multiblock .vtm), an XDMF time series, a folder of numbered files, a
+    folder of step folders, a quoted glob or a 'time,path' step listing.
     """
     from .io.describe import describe_series, format_description
 

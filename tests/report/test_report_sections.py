@@ -85,4 +85,11 @@ def test_compare_report_sections(tmp_path):
     compare_runs(RunSpec(a, "alpha", label="quads"), RunSpec(b, "alpha", label="triangles"), out=tmp_path / "c")
     page = _parse(tmp_path / "c" / "report.html")
     assert page.headings[0].startswith("phasegauge comparison")
+    assert page.headings[1:3] == ["Findings", "Key figures"]  # first, as in the measure report
     assert {"Paired steps", "Shape and metric comparison", "Plots"} <= set(page.headings)
+    import json
+
+    record = json.loads((tmp_path / "c" / "manifest.json").read_text())
+    assert set(record["options"]) == {"quads", "triangles"} and record["options"]["quads"]["field"] == "alpha"
+    assert record["skipped_steps"] == {"quads": [], "triangles": []} and set(record["warnings"]) == {"quads",
+                                                                                                     "triangles"}
