@@ -133,7 +133,8 @@ def _compare_runs(first, second, *, out, overwrite, level, time_tolerance, spaci
         options = MeasureOptions(field=spec.field, range=spec.value_range, phase=spec.phase, level=level,
                                  velocity=spec.velocity, field_location=spec.field_location,
                                  sort_by_time=spec.sort_by_time)
-        res = measure(spec.path, options=plan.options(options, k), workers=workers, progress=progress, snapshots=0)
+        res = measure(spec.path, options=plan.options(options, k), workers=workers, progress=progress, snapshots=0,
+                      progress_label=f"steps of {labels[k]}")
         res.options = options
         runs.append(res)
     res_a, res_b = runs

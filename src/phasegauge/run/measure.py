@@ -89,7 +89,7 @@ def measure(path, field: str | None = None, *, options: MeasureOptions | None = 
             workers: int = 1, scheduler: str | None = None, overwrite: bool = False,
             resume: bool = False, progress: bool | None = False, contours: bool = True,
             snapshots: int = 4, mesh_pool=None, invocation: dict | None = None, plot_format: str = "png",
-            keep_cache: bool = False, **option_values) -> MeasureResult:
+            keep_cache: bool = False, progress_label: str = "steps", **option_values) -> MeasureResult:
     """Run every analysis on every step of a series.
 
     Parameters
@@ -127,6 +127,8 @@ def measure(path, field: str | None = None, *, options: MeasureOptions | None = 
         work (local workers inherit it). Default: a pool of this run.
     plot_format : {'png', 'svg', 'pdf'}
         File format of the plots (the report page embeds PNG images either way).
+    progress_label : str
+        What the progress line counts (``'steps of run A'`` when two runs are measured).
     keep_cache : bool
         Keep ``out/.cache`` (the finished steps) after a complete run; by default it is
         removed once the report is written (an interrupted run always keeps it, for ``resume``).
@@ -161,7 +163,7 @@ def measure(path, field: str | None = None, *, options: MeasureOptions | None = 
     from ..io import Series
 
     own = ("path", "field", "options", "out", "workers", "scheduler", "overwrite", "resume", "progress",
-           "contours", "snapshots", "mesh_pool", "invocation", "plot_format", "keep_cache")
+           "contours", "snapshots", "mesh_pool", "invocation", "plot_format", "keep_cache", "progress_label")
     option_values = renamed_keywords(option_values, [f.name for f in dataclasses.fields(MeasureOptions)] + list(own),
                                      old={**OLD_OPTION_NAMES, "write_contours": "contours"}, where="measure()")
     contours = option_values.pop("contours", contours)
@@ -198,7 +200,8 @@ def measure(path, field: str | None = None, *, options: MeasureOptions | None = 
                             overwrite=overwrite, resume=resume, progress=progress,
                             contours=contours, snapshots=snapshots, notes=notes,
                             invocation=invocation or {"python": "phasegauge.measure"},
-                            output={"plot_format": plot_format, "keep_cache": bool(keep_cache)})
+                            output={"plot_format": plot_format, "keep_cache": bool(keep_cache)},
+                            progress_label=progress_label)
     finally:
         series.close()
 
@@ -243,7 +246,7 @@ def _records(caught) -> list:
 
 
 def _measure(series, options, out, txn, *, workers, scheduler, overwrite, resume, progress,
-             contours, snapshots, notes, invocation, output) -> MeasureResult:
+             contours, snapshots, notes, invocation, output, progress_label="steps") -> MeasureResult:
     from .assemble import TrackingFeed, assemble
     from .cache import StepCache
     from .executors import run_steps
@@ -270,7 +273,7 @@ def _measure(series, options, out, txn, *, workers, scheduler, overwrite, resume
                         keep={indices[k] for k in snapshot_steps(n, snapshots)}, series=series)
     feed = TrackingFeed(options, indices, cache=cache)
     before = input_stamps(series)
-    bar = Progress(n, "steps", enabled=progress)
+    bar = Progress(n, progress_label, enabled=progress)
     results = run_steps(runner, indices, workers=workers, scheduler=scheduler, feed=feed, progress=bar)
     bar.close()
     _check_read_times(results, options)
