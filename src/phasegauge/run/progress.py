@@ -36,16 +36,26 @@ class Progress:
         self.done = 0
         self.reused = 0
         self.start = time.monotonic()
-        self._last = float("-inf")  # the first update is always shown
+        # a terminal shows the first update at once; a log gets its first line after an interval,
+        # so a short run (or one that fails at once) leaves no progress lines in it
+        self._last = self.start if self.lines else float("-inf")
+        self._logged = None  # steps done at the last line written to a log
 
     def update(self, n: int = 1, *, reused: bool = False) -> None:
         self.done += n
         if reused:
             self.reused += n
         now = time.monotonic()
-        if self.enabled and (now - self._last >= self.interval or self.done >= self.total):
+        if not self.enabled:
+            return
+        if self.lines:
+            if now - self._last >= self.interval:
+                self._last, self._logged = now, self.done
+                self.stream.write(self.text(now) + "\n")
+                self.stream.flush()
+        elif now - self._last > self.interval or self.done >= self.total:
             self._last = now
-            self.stream.write(self.text(now) + "\n" if self.lines else "\r" + self.text(now) + "\033[K")
+            self.stream.write("\r" + self.text(now) + "\033[K")
             self.stream.flush()
 
     def text(self, now: float | None = None) -> str:
@@ -63,6 +73,9 @@ class Progress:
     def close(self) -> None:
         if self.enabled and not self.lines:
             self.stream.write("\r" + self.text() + "\033[K\n")
+            self.stream.flush()
+        elif self.enabled and self._logged is not None and self._logged != self.done:
+            self.stream.write(self.text() + "\n")  # a log that got lines gets the last count too
             self.stream.flush()
 
 
