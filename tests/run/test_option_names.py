@@ -150,9 +150,12 @@ def test_every_name_gives_one_manifest_entry(tmp_path):
 
 def test_old_names_give_the_same_manifest_entry(tmp_path):
     listing = _series(str(tmp_path))
-    with pytest.warns(OldNameWarning, match="old name of 'range'"):
+    with pytest.warns(OldNameWarning) as caught:
         measure(listing, "alpha", out=tmp_path / "api", value_range=(-0.1, 1.1), connectivity="point",
                 write_contours=False, analyses=("interface", "droplets"))
+    said = " ".join(str(w.message) for w in caught)
+    for old, new in (("value_range", "range"), ("connectivity", "adjacency"), ("write_contours", "contours")):
+        assert f"'{old}' is the old name of '{new}'" in said
     new = measure(listing, "alpha", out=tmp_path / "new", range=(-0.1, 1.1), adjacency="point",
                   contours=False, analyses=("interface", "droplets"))
     old, current = _options(tmp_path / "api"), _options(tmp_path / "new")
