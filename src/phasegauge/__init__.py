@@ -15,7 +15,7 @@ from .errors import (AnalysisError, FieldNotFoundError, FieldShapeError, InputEr
                      InputFileNotFound, OptionError, OutputError, PhasegaugeError,
                      PhasegaugeWarning, RangeWarning, NonFiniteWarning, SeriesError,
                      SkippedStepWarning, UnreadableFileError, UnsupportedMeshError,
-                     ResolutionWarning, SeriesWarning, MeshWarning)
+                     ResolutionWarning, SeriesWarning, MeshWarning, OldNameWarning)
 # The rest of the API is imported on first use (PEP 562), so ``phasegauge --help`` and
 # ``import phasegauge.errors`` do not pay for numpy, scipy and meshio.
 _LAZY = MappingProxyType({
@@ -44,6 +44,7 @@ __all__ = [
     "OptionError", "OutputError", "PhasegaugeError", "PhasegaugeWarning", "RangeWarning",
     "NonFiniteWarning", "SeriesError", "SkippedStepWarning", "UnreadableFileError",
     "UnsupportedMeshError", "ResolutionWarning", "SeriesWarning", "MeshWarning",
+    "OldNameWarning",
     "CellBlock", "Mesh", "RegularGrid",
     "Indicator", "make_indicator", "map_to_indicator", "parse_range",
     "Series", "Step", "StepInfo", "open_series",

@@ -14,11 +14,19 @@ import warnings
 import click
 
 from . import __version__
+from ._cli_options import (_add, _box, _command_line, _floats, _measure_options, _mixture_options, _mixture_values,
+                           _old_flags, _point_options)
 from .errors import PhasegaugeError, PhasegaugeWarning
 
 
 class _Group(click.Group):
     """Click group that reports errors as one line."""
+
+    def parse_args(self, ctx, args):
+        ctx.meta["phasegauge.argv"] = list(args)  # the command line as typed, for the manifest
+        if "--debug" in args[1:]:  # accepted after the subcommand too
+            args = ["--debug"] + [a for a in args if a != "--debug"]
+        return super().parse_args(ctx, args)
 
     def invoke(self, ctx):
         debug = bool(ctx.params.get("debug"))
@@ -118,8 +126,9 @@ def main(ctx, debug):
 def inspect(path, as_json, scan, sort_by_time):
     """Describe a series: steps, times, mesh and fields.
 
-    PATH is a mesh file (.vtu, .vtk, .xdmf), an XDMF time series, a folder of
-    numbered files, a quoted glob or a 'time,path' step listing.
+    PATH is a mesh file (.vtu, .vtk, .xdmf, .xmf; structured .vti, .vtr, .vts;
+    VTK multiblock .vtm), an XDMF time series, a folder of numbered files, a
+    folder of step folders, a quoted glob or a 'time,path' step listing.
     """
     from .io.describe import describe_series, format_description
 
@@ -132,111 +141,31 @@ def inspect(path, as_json, scan, sort_by_time):
         click.echo(format_description(desc))
 
 
-def _floats(text, what, count=None):
-    from .errors import OptionError
-
-    if text is None:
-        return None
-    try:
-        values = tuple(float(v) for v in str(text).replace(";", ",").split(",") if v.strip())
-    except ValueError:
-        raise OptionError(f"{what} must be numbers separated by commas, found {text!r}",
-                          fix="for example 0.1,0.2") from None
-    if count is not None and len(values) != count:
-        from .errors import OptionError as _O
-
-        raise _O(f"{what} needs {count} numbers, found {len(values)}", fix="separate them with commas")
-    return values
-
-
-def _box(text):
-    values = _floats(text, "--box")
-    if values is None:
-        return None
-    from .errors import OptionError
-
-    if len(values) not in (4, 6):
-        raise OptionError(f"--box needs 4 (2D) or 6 (3D) numbers xmin,xmax,ymin,ymax[,zmin,zmax], found "
-                          f"{len(values)}", fix="for example --box 0,1,0,0.5")
-    pairs = [values[i:i + 2] for i in range(0, len(values), 2)]
-    if len(pairs) == 2:
-        pairs.append((-1e300, 1e300))
-    return tuple(pairs)
-
-
-_measure_options = (
-    click.option("--field", "-f", required=True, help="Field mapped to the phase indicator c."),
-    click.option("--range", "value_range", default="0,1", show_default=True,
-                 help="Field values mapped to c = 0 and c = 1, as LO,HI (an order parameter: -1,1)."),
-    click.option("--phase", type=click.Choice(["upper", "lower"]), default="upper", show_default=True,
-                 help="Measure the phase where the field is high (upper) or low (lower)."),
-    click.option("--level", type=float, default=0.5, show_default=True,
-                 help="Indicator level of the interface and of droplets."),
-    click.option("--velocity", default=None, help="Velocity field (droplet velocities, tracking, flow-weighted sections)."),
-    click.option("--field-location", type=click.Choice(["cell", "point"]), default=None,
-                 help="Which copy of a field written on cells and on points under one name to read "
-                      "(default: the cell copy, the solver's own values)."),
-)
-
-
-#: options of a partially miscible mixture (measure)
-_mixture_options = (
-    click.option("--model", "model_file", default=None,
-                 help="Mixture model file (TOML, see 'phasegauge equilibrium'): bulk compositions against its binodal."),
-    click.option("--temperature", type=float, default=None, help="Temperature of the run in K (with --model)."),
-    click.option("--temperature-field", default=None, help="Field holding the temperature (instead of --temperature)."),
-    click.option("--solute", default=None, help="Field of a solute's mole fraction distributed between the phases."),
-    click.option("--solute-receiving", type=click.Choice(["rich", "lean"]), default="rich", show_default=True,
-                 help="The phase the solute moves into."),
-    click.option("--bulk-widths", type=float, default=1.0, show_default=True,
-                 help="Bulk cells lie farther than this many interface widths from the contour."),
-    click.option("--equilibrium-tolerance", type=float, default=0.01, show_default=True,
-                 help="Gap to the binodal (mole fraction) below which the run is at equilibrium."),
-    click.option("--capillary-length", type=float, default=None,
-                 help="sigma v_m / (R T) in mesh length units: the Gibbs-Thomson shift of drops."),
-)
-
-
-def _mixture_values(model_file=None, temperature=None, temperature_field=None, solute=None,
-                    solute_receiving="rich", bulk_widths=1.0, equilibrium_tolerance=0.01,
-                    capillary_length=None) -> dict:
-    """MeasureOptions entries of a mixture run (none without --model, unless others are given alone)."""
-    given = {"temperature": temperature, "temperature_field": temperature_field, "solute": solute,
-             "capillary_length": capillary_length}
-    values = {k: v for k, v in given.items() if v is not None}
-    if model_file is None:
-        return values  # a value without a model is refused by MeasureOptions
-    return {"model": model_file, **values, "solute_receiving": solute_receiving, "bulk_widths": bulk_widths,
-            "equilibrium_tolerance": equilibrium_tolerance}
-
-
-def _add(options):
-    def wrap(f):
-        for opt in reversed(options):
-            f = opt(f)
-        return f
-    return wrap
-
-
 @main.command()
 @click.argument("path")
 @_add(_measure_options)
 @click.option("--out", "-o", "out", required=True, help="Output folder.")
+@click.option("--steps", default=None,
+              help="Step numbers to measure: START:STOP:STRIDE (STOP excluded, as a Python slice) or one number.")
+@click.option("--time-from", type=float, default=None, help="Measure only steps at this time or later.")
+@click.option("--time-to", type=float, default=None, help="Measure only steps at this time or earlier.")
+@click.option("--every", type=int, default=1, show_default=True, help="Of the chosen steps, measure every k-th.")
 @click.option("--analyses", default=",".join(("interface", "droplets", "mixing", "conservation")),
               show_default=True, help="Comma-separated subset of the analyses to run.")
 @click.option("--adjacency", type=click.Choice(["face", "point"]), default="face", show_default=True,
               help="Cells that share a face (or an edge in 2D), or any point, belong to one droplet.")
 @click.option("--periodic", default="", help="Periodic axes for droplets, e.g. x,y.")
-@click.option("--ignore-remerge", type=int, default=0, show_default=True,
+@click.option("--ignore-remerge-within", "ignore_remerge_within", type=int, default=0, show_default=True,
               help="A breakup that merges again within this many steps is no event.")
 @click.option("--densities", default=None, help="Densities of the measured and the other phase, RHO1,RHO2.")
 @click.option("--diffusivity", type=float, default=None,
               help="Physical diffusivity or mobility to compare the numerical one with.")
 @click.option("--box", default=None, help="Region for the mixing figures: xmin,xmax,ymin,ymax[,zmin,zmax].")
-@click.option("--sections", "section_axis", type=click.Choice(["x", "y", "z"]), default=None,
+@click.option("--section-axis", "section_axis", type=click.Choice(["x", "y", "z"]), default=None,
               help="Cross-section profiles along this axis (mixing length).")
 @click.option("--section-count", type=int, default=20, show_default=True, help="Number of cross sections.")
-@click.option("--section-at", default=None, help="Cross-section positions, comma-separated (instead of a count).")
+@click.option("--section-positions", default=None,
+              help="Cross-section positions, comma-separated (instead of a count).")
 @click.option("--mixing-target", type=float, default=0.9, show_default=True,
               help="Mixing index that defines the mixing length.")
 @click.option("--segregation-scale", is_flag=True,
@@ -250,8 +179,12 @@ def _add(options):
 @click.option("--strict", is_flag=True, help="Stop at a bad step instead of skipping it.")
 @click.option("--keep-3d", is_flag=True,
               help="Measure a mesh one cell thick as 3D (by default: per unit depth, as 2D).")
-@click.option("--no-contours", is_flag=True, help="Do not write the interface geometry of every step.")
+@click.option("--contours/--no-contours", default=True, show_default=True,
+              help="Write the interface geometry of every step (contours/).")
 @click.option("--snapshots", type=int, default=4, show_default=True, help="Steps whose interface the report draws.")
+@click.option("--plot-format", type=click.Choice(["png", "svg", "pdf"]), default="png", show_default=True,
+              help="File format of the plots.")
+@click.option("--keep-cache", is_flag=True, help="Keep OUT/.cache (the finished steps) after a complete run.")
 @click.option("--sort-by-time", is_flag=True,
               help="Order the steps by the times stored in their files, not by their names (default: refuse "
                    "a series whose times do not increase).")
@@ -267,12 +200,15 @@ def _add(options):
                    "spread, free energy and interfacial tension per step (regular grids).")
 @click.option("--coarsening", is_flag=True,
               help="Characteristic length of the pattern per step (structure factor) and the fitted L ~ t^n.")
-def measure(path, field, value_range, phase, level, velocity, field_location, sort_by_time, out, analyses,
+@_old_flags(("--ignore-remerge", "ignore_remerge_within", int), ("--sections", "section_axis", click.Choice("xyz")),
+            ("--section-at", "section_positions", str))
+def measure(path, field, value_range, phase, level, velocity, field_location, sort_by_time, out, steps, time_from,
+            time_to, every, analyses,
             adjacency, periodic,
-            ignore_remerge, densities, diffusivity, box, section_axis, section_count, section_at,
+            ignore_remerge_within, densities, diffusivity, box, section_axis, section_count, section_positions,
             mixing_target, segregation_scale, drift_tolerance, workers, scheduler, resume, overwrite, strict, keep_3d,
-            no_contours, snapshots, quiet, probe_file, line_file, measured_file, free_energy=None, coarsening=False,
-            **mixture):
+            contours, snapshots, plot_format, keep_cache, quiet, probe_file, line_file, measured_file,
+            free_energy=None, coarsening=False, **mixture):
     """Measure interface, droplets, mixing and conservation on every step of PATH.
 
     PATH is a mesh file, an XDMF time series, a folder of numbered files, a
@@ -282,39 +218,26 @@ def measure(path, field, value_range, phase, level, velocity, field_location, so
     from .run.measure import MeasureOptions, measure as run_measure
 
     options = MeasureOptions(
-        field=field, value_range=value_range, phase=phase, level=level, velocity=velocity,
-        analyses=tuple(a.strip() for a in analyses.split(",") if a.strip()), connectivity=adjacency,
+        field=field, range=value_range, phase=phase, level=level, velocity=velocity,
+        analyses=tuple(a.strip() for a in analyses.split(",") if a.strip()), adjacency=adjacency,
         periodic=tuple(a.strip() for a in periodic.split(",") if a.strip()),
-        ignore_remerge_within=ignore_remerge, densities=_floats(densities, "--densities", 2),
+        ignore_remerge_within=ignore_remerge_within, densities=_floats(densities, "--densities", 2),
         diffusivity=diffusivity, box=_box(box), section_axis=section_axis, section_count=section_count,
-        section_positions=_floats(section_at, "--section-at"), mixing_target=mixing_target,
+        section_positions=_floats(section_positions, "--section-positions"), mixing_target=mixing_target,
         segregation_scale=segregation_scale,
         drift_tolerance=drift_tolerance, strict=strict, field_location=field_location or "auto",
-        sort_by_time=sort_by_time, keep_3d=keep_3d, free_energy=free_energy, coarsening=coarsening,
+        sort_by_time=sort_by_time, keep_3d=keep_3d, steps=steps, time_from=time_from, time_to=time_to, every=every,
+        free_energy=free_energy, coarsening=coarsening,
         **_point_options(probe_file, line_file, measured_file), **_mixture_values(**mixture))
     result = run_measure(path, options=options, out=out, workers=workers, scheduler=scheduler,
                          overwrite=overwrite, resume=resume, progress=None if not quiet else False,
-                         write_contours=not no_contours, snapshots=snapshots)
+                         contours=contours, snapshots=snapshots, invocation=_command_line(),
+                         plot_format=plot_format, keep_cache=keep_cache)
     _summary(result, out, quiet)
 
 
-def _point_options(probe_file, line_file, measured_file) -> dict:
-    """MeasureOptions entries read from the probe, line and measured files that are given."""
-    from .io import read_line_file, read_measured_file, read_probe_file
-
-    given = {}
-    if probe_file:
-        given["probes"] = read_probe_file(probe_file)
-    if line_file:
-        given["lines"] = read_line_file(line_file)
-    if measured_file:
-        given["measured"] = read_measured_file(measured_file)
-    return given
-
-
 def _summary(result, out, quiet):
-    if quiet:
-        return
+    """What the run found, on stdout (``-q`` hides the progress display, not this)."""
     if hasattr(result, "pairs"):
         click.echo(f"compared {len(result.pairs)} paired times; report: {os.path.join(out, 'report.html')}")
         return
@@ -338,8 +261,9 @@ def _summary(result, out, quiet):
 @click.option("--overwrite", is_flag=True, default=None, help="Replace an existing output folder.")
 @click.option("--resume", is_flag=True, help="Finish an interrupted run.")
 @click.option("--workers", "-j", type=int, default=None, help="Local worker processes (overrides the recipe).")
+@click.option("--strict", is_flag=True, default=None, help="Stop at a bad step instead of skipping it (overrides the recipe).")
 @click.option("--quiet", "-q", is_flag=True, help="No progress display.")
-def run(recipe, overwrite, resume, workers, quiet):
+def run(recipe, overwrite, resume, workers, strict, quiet):
     """Run a recipe file (TOML): a whole measure or compare run kept beside the case."""
     from .recipes import load_recipe, run_recipe
     from .report._files import output_transaction
@@ -350,7 +274,7 @@ def run(recipe, overwrite, resume, workers, quiet):
         raise OptionError("is a folder, not a recipe file", where=recipe, fix="give the .toml file itself")
     loaded = load_recipe(recipe)
     with output_transaction(loaded["output"]["folder"]):
-        result = run_recipe(recipe, overwrite=overwrite or None, resume=resume, workers=workers,
+        result = run_recipe(recipe, overwrite=overwrite or None, resume=resume, workers=workers, strict=strict or None,
                             progress=None if not quiet else False)
     _summary(result, loaded["output"]["folder"], quiet)
 
@@ -418,13 +342,22 @@ def equilibrium(model_file, temperature, temperatures, count, as_json, out, over
 
 
 @main.command()
-@click.argument("directory")
+@click.argument("directory", required=False)
 @click.option("--only", default=None, help="Comma-separated names of the series to write (default: all).")
 @click.option("--overwrite", is_flag=True, help="Replace series already in DIRECTORY.")
-def samples(directory, only, overwrite):
+@click.option("--list", "list_names", is_flag=True, help="Print the names of the series and write nothing.")
+def samples(directory, only, overwrite, list_names):
     """Write the demo series (computed by the generators, seeded) into DIRECTORY."""
-    from .errors import OutputError
+    from .errors import OptionError, OutputError
     from .samples import SAMPLE_NAMES, write_samples
+
+    if list_names:
+        for name in SAMPLE_NAMES:
+            click.echo(name)
+        return
+    if directory is None:
+        raise OptionError("no folder to write the series into", fix="give a folder: phasegauge samples DIR "
+                          "(or --list for the names)")
 
     names = [n.strip() for n in only.split(",")] if only else list(SAMPLE_NAMES)
     unknown = [n for n in names if n not in SAMPLE_NAMES]
@@ -532,7 +465,7 @@ def convergence(fine, medium, coarse, field, value_range, phase, level, velocity
     if field is not None:
         from .run.options import MeasureOptions
 
-        options = MeasureOptions(field=field, value_range=value_range, phase=phase, level=level,
+        options = MeasureOptions(field=field, range=value_range, phase=phase, level=level,
                                  velocity=velocity,
                                  analyses=tuple(a.strip() for a in analyses.split(",") if a.strip()))
     result = grid_convergence_run(fine, medium, coarse, options=options,

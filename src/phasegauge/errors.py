@@ -34,6 +34,7 @@ __all__ = [
     "ResolutionWarning",
     "SeriesWarning",
     "MeshWarning",
+    "OldNameWarning",
     "collapse_warnings",
     "short_text",
     "cut_middle",
@@ -190,6 +191,14 @@ class SeriesWarning(PhasegaugeWarning):
 
 class MeshWarning(PhasegaugeWarning):
     """The mesh has inverted or zero-size cells, or duplicate points that were merged."""
+
+
+class OldNameWarning(PhasegaugeWarning, FutureWarning):
+    """An option, recipe key or flag was given under its old name (still accepted, to be removed).
+
+    A :class:`FutureWarning` (the deprecation category Python shows to end users by
+    default), so ``pytest.deprecated_call`` and warning filters on it both work.
+    """
 
 
 def collapse_warnings(records) -> list:

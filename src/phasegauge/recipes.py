@@ -10,6 +10,9 @@ A measure recipe::
     velocity = "velocity"      # optional
     field_location = "cell"    # optional: which copy of a field written on cells and points
     sort_by_time = false       # optional: order the steps by the times in their files
+    steps = "0:100:5"          # optional: step numbers START:STOP:STRIDE (STOP excluded)
+    time_from = 0.5            # optional: only steps within [time_from, time_to]
+    every = 2                  # optional: then every 2nd of those
 
     [interface]                # optional tables; leaving a table out keeps the defaults
     level = 0.5
@@ -25,7 +28,7 @@ A measure recipe::
     box = [[0, 1], [0, 1], [-1, 1]]
     section_axis = "x"
     section_count = 20         # or section_positions = [...]
-    target = 0.9
+    mixing_target = 0.9
 
     [conservation]
     densities = [1000.0, 1.0]
@@ -41,6 +44,8 @@ A measure recipe::
     [output]
     folder = "../out/filament"      # relative to the recipe
     overwrite = true
+    plot_format = "png"             # or "svg", "pdf"
+    keep_cache = false              # keep .cache/ (the finished steps) after a complete run
 
     [miscibility]              # optional: bulk compositions against a mixture model
     model = "solvent_pair.toml"   # model file, relative to the recipe
@@ -64,7 +69,8 @@ with an optional ``label``), an optional ``[compare]`` table
 (``time_tolerance``, ``spacing``, ``level``, ``reference_table``,
 ``rising_bubble``), ``[run]`` and ``[output]``.
 
-Unknown tables and keys are refused with the nearest known name suggested.
+Unknown tables and keys are refused with the nearest known name suggested; an old
+key name (:data:`OLD_KEYS`) is read as its new one, with an :class:`~phasegauge.errors.OldNameWarning`.
 """
 
 from __future__ import annotations
@@ -72,23 +78,28 @@ from __future__ import annotations
 import difflib
 import os
 import sys
+from types import MappingProxyType
 
-from .errors import InputFileNotFound, OptionError
+from .errors import InputFileNotFound, OldNameWarning, OptionError
 
-__all__ = ["load_recipe", "run_recipe", "RECIPE_SCHEMA", "COMPARE_SCHEMA", "CAMPAIGN_SCHEMA"]
+__all__ = ["load_recipe", "run_recipe", "RECIPE_SCHEMA", "COMPARE_SCHEMA", "CAMPAIGN_SCHEMA", "OLD_KEYS"]
+
+#: (table, old key) -> the key's one name (read with an OldNameWarning)
+OLD_KEYS = MappingProxyType({("mixing", "target"): "mixing_target"})
 
 _INPUT = {"path": str, "field": str, "range": list, "phase": str, "velocity": str, "label": str,
           "field_location": str, "sort_by_time": bool}
 
 RECIPE_SCHEMA = {
-    "input": {**_INPUT, "keep_3d": bool},
+    "input": {**_INPUT, "keep_3d": bool, "steps": str, "time_from": (int, float), "time_to": (int, float),
+              "every": int},
     "interface": {"level": (int, float), "diffusivity": (int, float), "contours": bool},
     "droplets": {"adjacency": str, "periodic": list, "ignore_remerge_within": int},
     "mixing": {"box": list, "section_axis": str, "section_count": int, "section_positions": list,
-               "target": (int, float), "segregation_scale": bool},
+               "mixing_target": (int, float), "segregation_scale": bool},
     "conservation": {"densities": list, "drift_tolerance": (int, float)},
     "run": {"analyses": list, "workers": int, "scheduler": str, "strict": bool, "snapshots": int},
-    "output": {"folder": str, "overwrite": bool},
+    "output": {"folder": str, "overwrite": bool, "plot_format": str, "keep_cache": bool},
     "validation": {"probes": str, "lines": str, "measured": str},
     "miscibility": {"model": str, "temperature": (int, float), "temperature_field": str, "solute": str,
                     "solute_receiving": str, "bulk_widths": (int, float), "tolerance": (int, float),
@@ -130,6 +141,21 @@ def _load_toml(path: str) -> dict:
                           fix="check quotes, brackets and '=' on the line named") from None
 
 
+def _rename_old_keys(data: dict, path: str) -> None:
+    """Read each old key (:data:`OLD_KEYS`) as its new name, with a warning; both at once is refused."""
+    import warnings
+
+    for (table, key), new in OLD_KEYS.items():
+        entries = data.get(table)
+        if not isinstance(entries, dict) or key not in entries:
+            continue
+        if new in entries:
+            raise OptionError(f"[{table}] has '{new}' and its old name '{key}'", where=path, fix=f"keep only {new}")
+        warnings.warn(OldNameWarning(f"[{table}] {key} is the old name of {new}; write {new} = ... (the old "
+                                     "name will be removed)", where=path), stacklevel=3)
+        entries[new] = entries.pop(key)
+
+
 def _suggest(name: str, known) -> str:
     close = difflib.get_close_matches(name, list(known), n=1, cutoff=0.5)
     return f"did you mean '{close[0]}'?" if close else "known: " + ", ".join(sorted(known))
@@ -154,6 +180,7 @@ def load_recipe(path) -> dict:
     data = _load_toml(path)
     kind = "compare" if ("first" in data or "second" in data) else ("campaign" if "runs" in data else "measure")
     schema = {"compare": COMPARE_SCHEMA, "campaign": CAMPAIGN_SCHEMA}.get(kind, RECIPE_SCHEMA)
+    _rename_old_keys(data, path)
     for table, entries in data.items():
         if kind == "campaign" and table == "runs":
             _check_runs(entries, path, data.get("input", {}))
@@ -200,19 +227,24 @@ def load_recipe(path) -> dict:
         _point_options(data["validation"])  # the files are read and checked before any work
     data["kind"] = kind
     data["base"] = base
+    with open(path, encoding="utf-8", errors="replace") as handle:
+        data["recipe_text"] = handle.read()
+    data["recipe_path"] = os.path.abspath(path)
     return data
 
 
 #: recipe entry -> the measure option it sets (values are checked one entry at a time)
-_MEASURE_OPTION = {("input", "field"): "field", ("input", "range"): "value_range", ("input", "phase"): "phase",
+_MEASURE_OPTION = {("input", "field"): "field", ("input", "range"): "range", ("input", "phase"): "phase",
                    ("input", "velocity"): "velocity", ("interface", "level"): "level",
-                   ("interface", "diffusivity"): "diffusivity", ("droplets", "adjacency"): "connectivity",
+                   ("interface", "diffusivity"): "diffusivity", ("droplets", "adjacency"): "adjacency",
                    ("droplets", "periodic"): "periodic",
                    ("droplets", "ignore_remerge_within"): "ignore_remerge_within", ("mixing", "box"): "box",
                    ("mixing", "section_axis"): "section_axis", ("mixing", "section_count"): "section_count",
-                   ("mixing", "section_positions"): "section_positions", ("mixing", "target"): "mixing_target",
+                   ("mixing", "section_positions"): "section_positions", ("mixing", "mixing_target"): "mixing_target",
                    ("conservation", "densities"): "densities",
-                   ("conservation", "drift_tolerance"): "drift_tolerance", ("run", "analyses"): "analyses"}
+                   ("conservation", "drift_tolerance"): "drift_tolerance", ("run", "analyses"): "analyses",
+                   ("input", "steps"): "steps", ("input", "time_from"): "time_from", ("input", "time_to"): "time_to",
+                   ("input", "every"): "every", ("run", "strict"): "strict"}
 
 
 #: how an entry is written, for a value of the wrong form
@@ -332,22 +364,25 @@ def measure_arguments(recipe: dict) -> dict:
     run = recipe.get("run", {})
     out = recipe["output"]
     options = MeasureOptions(
-        field=inp["field"], value_range=tuple(inp.get("range", (0.0, 1.0))), phase=inp.get("phase", "upper"),
+        field=inp["field"], range=tuple(inp.get("range", (0.0, 1.0))), phase=inp.get("phase", "upper"),
         level=iface.get("level", 0.5), velocity=inp.get("velocity"),
-        analyses=tuple(run.get("analyses", ANALYSES)), connectivity=drops.get("adjacency", "face"),
+        analyses=tuple(run.get("analyses", ANALYSES)), adjacency=drops.get("adjacency", "face"),
         periodic=tuple(drops.get("periodic", ())), ignore_remerge_within=drops.get("ignore_remerge_within", 0),
         densities=tuple(cons["densities"]) if "densities" in cons else None,
         diffusivity=iface.get("diffusivity"), box=tuple(map(tuple, mix["box"])) if "box" in mix else None,
         section_axis=mix.get("section_axis"), section_count=mix.get("section_count", 20),
         section_positions=tuple(mix["section_positions"]) if "section_positions" in mix else None,
-        mixing_target=mix.get("target", 0.9), segregation_scale=mix.get("segregation_scale", False),
+        mixing_target=mix.get("mixing_target", 0.9), segregation_scale=mix.get("segregation_scale", False),
         drift_tolerance=cons.get("drift_tolerance", 1e-3),
         strict=run.get("strict", False), field_location=inp.get("field_location", "auto"),
-        sort_by_time=inp.get("sort_by_time", False), keep_3d=inp.get("keep_3d", False),
+        sort_by_time=inp.get("sort_by_time", False), keep_3d=inp.get("keep_3d", False), steps=inp.get("steps"),
+        time_from=inp.get("time_from"), time_to=inp.get("time_to"), every=inp.get("every", 1),
         **_point_options(recipe.get("validation", {})), **_mixture_options(recipe.get("miscibility", {})))
     return dict(path=inp.get("path"), options=options, out=out["folder"], overwrite=out.get("overwrite", False),
                 workers=run.get("workers", 1), scheduler=run.get("scheduler"),
-                write_contours=iface.get("contours", True), snapshots=run.get("snapshots", 4))
+                contours=iface.get("contours", True), snapshots=run.get("snapshots", 4),
+                plot_format=out.get("plot_format", "png"), keep_cache=out.get("keep_cache", False),
+                invocation={"recipe": recipe.get("recipe_text", ""), "recipe_path": recipe.get("recipe_path", "")})
 
 
 def _mixture_options(miscibility: dict) -> dict:
@@ -376,9 +411,14 @@ def _point_options(validation: dict) -> dict:
     return {key: readers[key](path) for key, path in validation.items()}
 
 
-def run_recipe(path, *, overwrite=None, resume: bool = False, workers=None, progress=None):
-    """Run a recipe file; returns the measure or compare result."""
+def run_recipe(path, *, overwrite=None, resume: bool = False, workers=None, progress=None, strict=None):
+    """Run a recipe file; returns the measure or compare result.
+
+    ``overwrite``, ``workers`` and ``strict`` override the recipe's entries when given.
+    """
     recipe = load_recipe(path)
+    if strict is not None and recipe["kind"] != "compare":
+        recipe.setdefault("run", {})["strict"] = bool(strict)
     if recipe["kind"] == "measure":
         from .run.measure import measure
 
@@ -397,7 +437,7 @@ def run_recipe(path, *, overwrite=None, resume: bool = False, workers=None, prog
                             parameter=campaign.get("parameter", "parameter"), unit=campaign.get("unit", ""),
                             overwrite=kwargs["overwrite"] if overwrite is None else overwrite, resume=resume,
                             workers=kwargs["workers"] if workers is None else workers, progress=progress,
-                            write_contours=kwargs["write_contours"], snapshots=kwargs["snapshots"])
+                            contours=kwargs["contours"], snapshots=kwargs["snapshots"])
     from .run.compare import compare_runs, compare_arguments
 
     kwargs = compare_arguments(recipe)

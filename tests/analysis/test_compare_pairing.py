@@ -128,6 +128,19 @@ def test_compare_droplet_statistics_against_scipy_ks():
     assert resolved.iloc[0]["droplet_count_a"] == int(np.sum(da >= 0.015))
 
 
+def test_one_droplet_samples_get_no_size_test():
+    """scipy.stats.ks_2samp gives statistic 1 and p-value 1 for one value against one, whatever the
+    sizes: such a row is NaN with a note."""
+    one_a = pd.DataFrame({"step": [0], "time": [0.0], "volume": [1.0], "equivalent_diameter": [1.0]})
+    one_b = pd.DataFrame({"step": [0], "time": [0.0], "volume": [8.0], "equivalent_diameter": [2.0]})
+    assert tuple(ks_2samp([1.0], [2.0])) == (1.0, 1.0)  # what the table must not report
+    pairs = pd.DataFrame({"step_a": [0], "step_b": [0], "time_a": [0.0], "time_b": [0.0]})
+    row = compare_droplet_statistics(one_a, one_b, pairs).iloc[0]
+    assert np.isnan(row["size_ks_statistic"]) and np.isnan(row["size_ks_pvalue"])
+    assert row["size_ks_note"] == "fewer than 2 droplets in run A and B: no size test"
+    assert list(compare_droplet_statistics(one_a, one_b, pairs).columns[:2]) == ["step", "time"]
+
+
 def test_compare_droplet_statistics_needs_columns():
     with pytest.raises(OptionError, match="lacks columns"):
         compare_droplet_statistics(pd.DataFrame({"step": [0]}), pd.DataFrame({"step": [0]}),

@@ -84,7 +84,7 @@ def test_the_listing_wins_over_the_files_own_times(pde_run):
 
 def test_measure_reads_the_files_without_conversion(pde_run):
     folder, fmt = pde_run
-    result = pg.measure(folder / "run.steps", "phi", value_range=(-1, 1), analyses=("conservation",))
+    result = pg.measure(folder / "run.steps", "phi", range=(-1, 1), analyses=("conservation",))
     assert result.steps["time"].tolist() == LISTING_TIMES
     for k in range(len(LISTING_TIMES)):
         with _quiet():

@@ -66,7 +66,7 @@ def test_metric_and_shape_plots(tmp_path):
     b = pd.DataFrame({"step": range(6), "time": t, "phase_volume": 1 + 0.9 * t, "interface_width": 0.01 + 0 * t})
     comparison = compare_metrics(a, b)
     fig = plot_metric_curves(comparison)
-    assert [ax.get_title() for ax in fig.axes] == ["phase_volume", "interface_width"]
+    assert [ax.get_title() for ax in fig.axes] == ["phase volume", "interface width"]  # titles in words
     fig.savefig(tmp_path / "curves.png")
     fig = plot_metric_differences(comparison, metrics=["phase_volume"], relative=False)
     np.testing.assert_allclose(fig.axes[0].get_lines()[1].get_ydata(), 0.1 * t)
@@ -81,5 +81,5 @@ def test_reference_check_plot(tmp_path):
     bubble = pd.DataFrame({"time": t, "circularity": 1 - 0.1 * np.exp(-((t - 1.9) / 0.6) ** 2),
                            "centroid_y": 0.5 + 0.58 * t / 3, "velocity_y": 0.24 * np.exp(-((t - 0.92) / 0.8) ** 2)})
     fig = plot_reference_check(bubble, check_rising_bubble(bubble))
-    assert [ax.get_title() for ax in fig.axes] == ["circularity", "velocity_y", "centroid_y"]
+    assert [ax.get_title() for ax in fig.axes] == ["circularity", "velocity y", "centroid y"]
     fig.savefig(tmp_path / "reference.png")

@@ -65,12 +65,12 @@ def fingerprints() -> dict:
     with tempfile.TemporaryDirectory() as tmp:
         runs = {
             "triangles_filament": (os.path.join(SAMPLES, "filament_breakup.xdmf"),
-                                   dict(field="phi", value_range=(-1, 1), periodic=("x", "y"))),
+                                   dict(field="phi", range=(-1, 1), periodic=("x", "y"))),
             "triangles_channel": (os.path.join(SAMPLES, "channel_mixing.xdmf"),
                                   dict(field="c", velocity="velocity", section_axis="x", section_count=11)),
             "grid_vortex_sharp": (os.path.join(SAMPLES, "vortex_sharp"),
                                   dict(field="c", velocity="velocity")),
-            "tetra_spheres": (tetra_series(os.path.join(tmp, "tetra")), dict(field="phi", value_range=(-1, 1))),
+            "tetra_spheres": (tetra_series(os.path.join(tmp, "tetra")), dict(field="phi", range=(-1, 1))),
         }
         for name, (path, opts) in runs.items():
             res = measure(path, **opts)

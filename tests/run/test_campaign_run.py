@@ -42,7 +42,7 @@ def _recipe(folder, pecletes, extra=""):
     runs = "".join(f'[[runs]]\npath = "{_channel(folder, pe)}"\nparameter = {pe}\nlabel = "pe{pe:g}"\n'
                    for pe in pecletes)
     text = ('[input]\nfield = "c"\nvelocity = "U"\n[mixing]\nsection_axis = "x"\nsection_count = 80\n'
-            f'target = {TARGET}\n[run]\nanalyses = ["mixing", "conservation"]\n[output]\nfolder = "camp"\n'
+            f'mixing_target = {TARGET}\n[run]\nanalyses = ["mixing", "conservation"]\n[output]\nfolder = "camp"\n'
             '[interface]\ncontours = false\n[campaign]\nparameter = "Peclet"\nunit = "-"\n' + extra + runs)
     path = os.path.join(folder, "campaign.toml")
     with open(path, "w") as f:

@@ -31,7 +31,11 @@ def test_compare_two_conventions(tmp_path):
     out = tmp_path / "cmp"
     result = compare_runs(RunSpec(a, "phi", (-1, 1), label="diffuse"), RunSpec(b, "alpha", label="sharp"), out=out)
     table = pd.read_csv(out / "comparison.csv")
-    assert len(table) == 3 and list(table.columns[:3]) == ["time", "step_a", "step_b"]
+    assert len(table) == 3 and list(table.columns[:4]) == ["step", "time", "step_a", "step_b"]
+    # no column doubled by a join (pandas' _x/_y), and the runs named by their labels
+    assert not [c for c in table.columns if c.endswith(("_x", "_y"))] and table.columns.is_unique
+    assert set(table["label_a"]) == {"diffuse"} and set(table["label_b"]) == {"sharp"}
+    assert {"grid_interface_size_a", "interface_size_a"} <= set(table.columns)
     # the same disc r = 0.2 in both runs: shapes agree to a fraction of the coarser cell (1/40)
     assert (table["hausdorff"] < 0.025).all() and (table["dice"] > 0.97).all()
     # both runs' phase volumes near the disc area pi r^2 (exact geometry)

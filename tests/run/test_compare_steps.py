@@ -99,7 +99,7 @@ def test_the_plan_samples_only_the_predicted_pairs(tmp_path, monkeypatch):
 
 def test_measure_keeps_what_step_extra_returns(tmp_path):
     first, _ = _write_runs(tmp_path)
-    base = MeasureOptions(field="phi", value_range=(-1, 1))
+    base = MeasureOptions(field="phi", range=(-1, 1))
     assert base.step_extra(None, None) is None
     plain = measure(first.path, options=base)
     assert all(r.extra is None for r in plain.results)
@@ -107,7 +107,7 @@ def test_measure_keeps_what_step_extra_returns(tmp_path):
 
     grid = SamplingGrid([(0.1, 0.9), (0.1, 0.9)], (8, 8))
     signature = plain.results[0].mesh_signature
-    options = SamplingOptions(field="phi", value_range=(-1, 1), grid=grid, mesh_signature=signature,
+    options = SamplingOptions(field="phi", range=(-1, 1), grid=grid, mesh_signature=signature,
                               sample_steps=(1, 3))
     assert options.key() != base.key()  # a cached step never stands in for a sampled one
     sampled = measure(first.path, options=options)

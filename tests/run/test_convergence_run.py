@@ -68,7 +68,7 @@ def test_measure_folders_give_the_same_table_as_series(tmp_path):
     folders = []
     for k, path in enumerate(paths):
         folder = tmp_path / f"m{k}"
-        measure(path, options=options, out=folder, write_contours=False)
+        measure(path, options=options, out=folder, contours=False)
         folders.append(folder)
     from_series = grid_convergence_run(*paths, options=options).table
     from_folders = grid_convergence_run(*folders).table

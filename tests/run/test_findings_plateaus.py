@@ -27,7 +27,7 @@ def _series(folder, spike=0.0):
 
 @pytest.mark.parametrize("spike, kind", [(0.0, "bulk_plateaus"), (0.3, "indicator_overshoot")])
 def test_shifted_bulk_is_physics_and_values_beyond_it_overshoot(tmp_path, spike, kind):
-    result = measure(_series(tmp_path / "run", spike), field="phi", value_range=(-1, 1))
+    result = measure(_series(tmp_path / "run", spike), field="phi", range=(-1, 1))
     kinds = [f.kind for f in result.findings]
     assert kind in kinds
     other = {"bulk_plateaus": "indicator_overshoot", "indicator_overshoot": "bulk_plateaus"}[kind]
@@ -47,7 +47,7 @@ def test_expected_shift_from_the_free_energy(tmp_path):
     model = tmp_path / "well.toml"
     model.write_text(f'[model]\nkind = "double-well"\nlean = -1.0\nrich = 1.0\nheight = {beta / 4}\n'
                      f"kappa = {kappa}\n")
-    result = measure(_series(tmp_path / "run"), field="phi", value_range=(-1, 1), free_energy=str(model))
+    result = measure(_series(tmp_path / "run"), field="phi", range=(-1, 1), free_energy=str(model))
     note = next(f for f in result.findings if f.kind == "bulk_plateaus")
     radius = 0.5 * result.droplets["equivalent_diameter"].iloc[-1]
     sigma = 2 * np.sqrt(2) / 3 * np.sqrt(kappa * beta)

@@ -51,7 +51,8 @@ def test_measure_writes_every_output(tmp_path):
     for name in ("steps.csv", "droplets.csv", "events.csv", "report.html", "manifest.json",
                  "phase_volume_drift.png", "interface_width.png", "droplet_count.png"):
         assert (out / name).exists(), name
-    assert len(os.listdir(out / "contours")) == 6
+    assert len([f for f in os.listdir(out / "contours") if f.endswith(".vtu")]) == 6
+    assert (out / "contours" / "interface.steps").exists() and not (out / ".cache").exists()
     steps = pd.read_csv(out / "steps.csv")
     assert list(steps.columns[:4]) == ["step", "time", "phase_volume", "phase_volume_drift"]
     assert list(steps["time"]) == pytest.approx([0.1 * k for k in range(6)])
@@ -86,9 +87,9 @@ def test_existing_output_is_never_overwritten(tmp_path):
 
 def test_serial_local_parallel_and_dask_give_identical_tables(tmp_path):
     listing = _moving_disc_series(str(tmp_path), steps=5)
-    measure(listing, "alpha", out=tmp_path / "serial", write_contours=False)
-    measure(listing, "alpha", out=tmp_path / "local", workers=2, write_contours=False)
-    measure(listing, "alpha", out=tmp_path / "dask", scheduler="local", write_contours=False)
+    measure(listing, "alpha", out=tmp_path / "serial", contours=False)
+    measure(listing, "alpha", out=tmp_path / "local", workers=2, contours=False)
+    measure(listing, "alpha", out=tmp_path / "dask", scheduler="local", contours=False)
     ref = _tables(tmp_path / "serial")
     for other in ("local", "dask"):
         got = _tables(tmp_path / other)
@@ -100,7 +101,7 @@ def test_resume_after_kill_gives_identical_tables(tmp_path):
     from conftest import subprocess_env
 
     listing = _moving_disc_series(str(tmp_path), steps=12, n=40)
-    measure(listing, "alpha", out=tmp_path / "whole", write_contours=False)
+    measure(listing, "alpha", out=tmp_path / "whole", contours=False)
     out = tmp_path / "killed"
     cmd = [sys.executable, "-m", "phasegauge", "measure", listing, "-f", "alpha", "-o", str(out),
            "--no-contours", "--quiet"]
@@ -120,8 +121,8 @@ def test_resume_after_kill_gives_identical_tables(tmp_path):
     assert cached >= 1
     if not (out / "steps.csv").exists():
         with pytest.raises(OutputError, match="--resume"):
-            measure(listing, "alpha", out=out, write_contours=False)
-    result = measure(listing, "alpha", out=out, resume=True, write_contours=False)
+            measure(listing, "alpha", out=out, contours=False)
+    result = measure(listing, "alpha", out=out, resume=True, contours=False)
     assert sum(r.reused for r in result.results) >= min(cached, 12)
     ref, got = _tables(tmp_path / "whole"), _tables(out)
     for name in ref:
@@ -212,7 +213,7 @@ def test_recipe_values_are_checked_before_any_work_with_the_recipe_names(tmp_pat
     base = '[input]\npath = "x.vtu"\nfield = "c"\n[output]\nfolder = "o"\n'
     cases = {'[droplets]\nadjacency = "edge"\n': r"\[droplets\] adjacency must be 'face' or 'point'",
              '[interface]\ndiffusivity = -1.0\n': r"\[interface\] diffusivity must be non-negative",
-             '[mixing]\ntarget = 2.0\n': r"\[mixing\] target must lie in",
+             '[mixing]\nmixing_target = 2.0\n': r"\[mixing\] mixing_target must lie in",
              '[mixing]\nsection_axis = "w"\n': r"\[mixing\] section_axis must be x, y or z",
              '[run]\nworkers = 0\n': r"\[run\] workers must be at least 1"}
     for extra, message in cases.items():

@@ -71,7 +71,7 @@ def test_bulk_compositions_of_a_tanh_slab_within_0_002_of_the_truth(tmp_path):
 
 def test_order_parameter_maps_through_the_range(tmp_path):
     path = _slab_series(tmp_path, [(LEAN, RICH)], order_parameter=True)
-    res = measure(path, "x", value_range=(-1, 1), model=RegularSolutionModel(A_a=3.0), temperature=300.0,
+    res = measure(path, "x", range=(-1, 1), model=RegularSolutionModel(A_a=3.0), temperature=300.0,
                   analyses=("interface",))
     assert res.steps["bulk_composition_lean"].iat[0] == pytest.approx(LEAN, abs=2e-3)
     assert res.steps["bulk_composition_rich"].iat[0] == pytest.approx(RICH, abs=2e-3)

@@ -51,7 +51,7 @@ def test_probes_and_lines_exact_for_a_linear_field(tmp_path, kind):
     options = MeasureOptions(field="f", analyses=("conservation",),
                              probes=(("a", 0.25, 0.5, 0.0), ("b", 0.7, 0.1)),
                              lines=(("diag", 0.0, 0.0, 1.0, 1.0, 11),))
-    result = measure(listing, options=options, out=tmp_path / "out", write_contours=False)
+    result = measure(listing, options=options, out=tmp_path / "out", contours=False)
     probes = pd.read_csv(tmp_path / "out" / "probes.csv")
     assert list(probes.columns) == ["step", "time", "probe", "x", "y", "z", "value", "c"]
     assert len(probes) == 2 * len(TIMES)
@@ -99,7 +99,7 @@ def test_measured_values_give_validation_tables(tmp_path):
                       f"0.2,0.6,{_field(0.2, 0.6, 0.25) + 0.03},0.25,0.02\n"
                       f"0.8,0.3,{_field(0.8, 0.3, 0.0) - 0.02},,\n")
     options = MeasureOptions(field="f", analyses=("conservation",), measured=read_measured_file(measured))
-    result = measure(listing, options=options, out=tmp_path / "out", write_contours=False)
+    result = measure(listing, options=options, out=tmp_path / "out", contours=False)
     table = pd.read_csv(tmp_path / "out" / "validation.csv")
     assert list(table.columns) == ["time", "x", "y", "z", "measured", "simulated", "difference", "uncertainty",
                                    "within_uncertainty"]

@@ -1,4 +1,4 @@
-"""The progress line: steps done, rate and time left; silent when not asked or not a terminal."""
+"""The progress line: steps done, rate and time left; whole lines in a log; silent when turned off."""
 
 import io
 
@@ -17,9 +17,28 @@ def test_progress_line_counts_and_estimates():
     assert stream.getvalue().endswith("\n")
 
 
-def test_progress_silent_when_not_a_terminal():
+def test_progress_writes_whole_lines_to_a_log():
+    """A stream that is not a terminal (a batch log) gets whole lines, one per interval; a run
+    shorter than the interval leaves none (so an error stays the only line)."""
     stream = io.StringIO()  # not a terminal
-    bar = Progress(3, stream=stream)
+    bar = Progress(3, stream=stream, interval=0.0)
+    for _ in range(3):
+        bar.update()
+    bar.close()
+    lines = stream.getvalue().splitlines()
+    assert [line.split(" (")[0] for line in lines] == ["steps 1/3", "steps 2/3", "steps 3/3"]
+    assert "\r" not in stream.getvalue() and "\033" not in stream.getvalue()
+    quiet = io.StringIO()
+    short = Progress(3, stream=quiet, interval=1e9)
+    for _ in range(3):
+        short.update()
+    short.close()
+    assert quiet.getvalue() == ""
+
+
+def test_progress_silent_when_turned_off():
+    stream = io.StringIO()
+    bar = Progress(3, stream=stream, enabled=False)
     bar.update()
     bar.close()
     assert stream.getvalue() == ""

@@ -595,9 +595,9 @@ def test_subprocess_error_and_warning_lines(tmp_path):
 REGION_CASES = {
     # name: (extra arguments, words the one line must hold); the mesh is the unit square
     "box outside the mesh": (["--box", "5,6,5,6"], ["s_0.vtu, step 0", "the box lies outside the mesh along x"]),
-    "sections outside the mesh": (["--sections", "x", "--section-at", "5,6"],
+    "sections outside the mesh": (["--section-axis", "x", "--section-positions", "5,6"],
                                   ["s_0.vtu, step 0", "section positions 5, 6 lie outside the mesh"]),
-    "positions without an axis": (["--section-at", "0.5"], ["without a section axis"]),
+    "positions without an axis": (["--section-positions", "0.5"], ["without a section axis"]),
     "negative snapshots": (["--snapshots", "-1"], ["snapshots must be a whole number of 0 or more"]),
 }
 
@@ -642,9 +642,9 @@ def test_a_resume_refuses_a_step_whose_file_changed_and_says_when_nothing_is_lef
     the file changed since the interrupted run: refused, not silently mixed."""
     folder = _folder(tmp_path, "in", count=3)
     out = tmp_path / "o"
-    code, err, _ = _cli(["measure", folder, "-f", "alpha", "-o", out, "--quiet"])
+    code, err, _ = _cli(["measure", folder, "-f", "alpha", "-o", out, "--quiet", "--keep-cache"])
     assert code == 0, err
-    code, err, stdout = _cli(["measure", folder, "-f", "alpha", "-o", out, "--resume"])
+    code, err, stdout = _cli(["measure", folder, "-f", "alpha", "-o", out, "--resume", "--keep-cache"])
     assert code == 0, err
     assert "every step was finished before, nothing was computed again" in stdout
     _good(os.path.join(folder, "s_1.vtu"), cell={"alpha": 0.5 * DISC})

@@ -129,7 +129,7 @@ def test_interrupted_overwrite_is_finished_by_resume(tmp_path, monkeypatch):
 
     listing = _series(str(tmp_path / "in"), steps=4)
     out = tmp_path / "o"
-    measure(listing, "alpha", out=out, analyses=("conservation",), write_contours=False)
+    measure(listing, "alpha", out=out, analyses=("conservation",), contours=False)
     real = StepRunner.run
 
     def interrupted(runner, index):
@@ -139,11 +139,11 @@ def test_interrupted_overwrite_is_finished_by_resume(tmp_path, monkeypatch):
 
     monkeypatch.setattr(StepRunner, "run", interrupted)
     with pytest.raises(KeyboardInterrupt):
-        measure(listing, "alpha", out=out, overwrite=True, analyses=("conservation",), write_contours=False)
+        measure(listing, "alpha", out=out, overwrite=True, analyses=("conservation",), contours=False)
     # an interrupt keeps everything for --resume; the earlier run waits aside until this one finishes
     assert (out / _files.PREVIOUS_RUN / "steps.csv").exists()
     monkeypatch.setattr(StepRunner, "run", real)
-    result = measure(listing, "alpha", out=out, resume=True, analyses=("conservation",), write_contours=False)
+    result = measure(listing, "alpha", out=out, resume=True, analyses=("conservation",), contours=False)
     assert sum(r.reused for r in result.results) == 2
     assert not (out / _files.PREVIOUS_RUN).exists() and (out / "steps.csv").exists()
 
@@ -151,7 +151,7 @@ def test_interrupted_overwrite_is_finished_by_resume(tmp_path, monkeypatch):
 def test_resume_removes_temporaries_of_a_killed_run(tmp_path):
     listing = _series(str(tmp_path / "in"), steps=2, n=6)
     out = tmp_path / "o"
-    assert _cli(["measure", listing, "-f", "alpha", "-o", out] + FAST)[0] == 0
+    assert _cli(["measure", listing, "-f", "alpha", "-o", out, "--keep-cache"] + FAST)[0] == 0
     (out / ".cache" / ".tmp-abcdstep_000001.pkl.part").write_bytes(b"half")
     (out / ".tmp-xyzsteps.csv.part").write_text("half")
     assert _cli(["measure", listing, "-f", "alpha", "-o", out, "--resume"] + FAST)[0] == 0

@@ -230,7 +230,7 @@ def test_resume_sees_a_rewritten_volume_block_behind_an_unchanged_vtm(tmp_path):
     case, out = tmp_path / "case", tmp_path / "out"
     write_vof_tank(case)
     vtm = (case / "tank_12.vtm").read_text()
-    pg.measure(case, "alpha", out=out, analyses=("conservation",))
+    pg.measure(case, "alpha", out=out, analyses=("conservation",), keep_cache=True)
     manifest = json.loads((out / "manifest.json").read_text())
     listed = [os.path.relpath(f["path"], case) for f in manifest["inputs"]]
     assert listed[:2] == ["tank_0.vtm", os.path.join("tank_0", "internal.vtu")]

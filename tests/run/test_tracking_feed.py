@@ -98,14 +98,14 @@ def test_resume_tracks_from_the_cache_without_reading_a_step(series_dir, serial,
     from phasegauge.io import Series
 
     out = tmp_path / "out"
-    measure(series_dir, "alpha", velocity="U", analyses=("droplets",), out=out, write_contours=False)
+    measure(series_dir, "alpha", velocity="U", analyses=("droplets",), out=out, contours=False, keep_cache=True)
 
     def no_reading(self, index):
         raise AssertionError(f"step {index} was read again")
 
     monkeypatch.setattr(Series, "read", no_reading)
     resumed = measure(series_dir, "alpha", velocity="U", analyses=("droplets",), out=out, resume=True,
-                      write_contours=False, workers=workers)
+                      contours=False, workers=workers)
     assert all(r.reused for r in resumed.results)
     for name in ("steps", "droplets", "events"):
         pd.testing.assert_frame_equal(getattr(serial, name), getattr(resumed, name), check_exact=True)

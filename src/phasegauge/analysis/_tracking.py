@@ -39,7 +39,7 @@ from ._labelling import DropletLabels, _normalize_periodic
 __all__ = ["DropletTracker", "track_droplets", "EVENT_COLUMNS", "EVENT_KINDS"]
 
 #: columns of the events table, in order
-EVENT_COLUMNS = ("time", "step", "kind", "before", "after", "volume_before", "volume_after", "closure_error")
+EVENT_COLUMNS = ("step", "time", "kind", "before", "after", "volume_before", "volume_after", "closure_error")
 
 #: the kinds of event
 EVENT_KINDS = ("breakup", "coalescence", "complex", "appearance", "disappearance")

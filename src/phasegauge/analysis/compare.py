@@ -323,12 +323,14 @@ def compare_droplet_statistics(droplets_a: pd.DataFrame, droplets_b: pd.DataFram
     Returns
     -------
     DataFrame, one row per pair
-        ``time``, ``step_a``, ``step_b``, then ``droplet_count``,
+        ``step``, ``time`` (run A's), ``step_a``, ``step_b``, then ``droplet_count``,
         ``mean_equivalent_diameter``, ``median_equivalent_diameter``,
         ``total_droplet_volume`` each with ``_a``, ``_b`` and ``_diff`` (A - B),
         and ``size_ks_statistic``, ``size_ks_pvalue``: the two-sample
-        Kolmogorov-Smirnov test of the equivalent diameters (NaN when a run
-        has no droplet at that time).
+        Kolmogorov-Smirnov test of the equivalent diameters, and
+        ``size_ks_note``: why the test is NaN (a run with fewer than 2
+        droplets at that time, where the test says nothing: one droplet
+        against one gives a statistic and a p-value of 1 whatever the sizes).
 
     References
     ----------
@@ -354,7 +356,7 @@ def compare_droplet_statistics(droplets_a: pd.DataFrame, droplets_b: pd.DataFram
     for step_a, step_b, time_a in zip(pairs["step_a"], pairs["step_b"], pairs["time_a"]):
         ga = groups[0].get(step_a, tables[0].iloc[:0])
         gb = groups[1].get(step_b, tables[1].iloc[:0])
-        row = {"time": float(time_a), "step_a": step_a, "step_b": step_b}
+        row = {"step": step_a, "time": float(time_a), "step_a": step_a, "step_b": step_b}
         for g, suffix in ((ga, "a"), (gb, "b")):
             d = g["equivalent_diameter"].to_numpy(dtype=np.float64)
             row[f"droplet_count_{suffix}"] = len(g)
@@ -365,13 +367,16 @@ def compare_droplet_statistics(droplets_a: pd.DataFrame, droplets_b: pd.DataFram
             row[f"{name}_diff"] = row[f"{name}_a"] - row[f"{name}_b"]
         da = ga["equivalent_diameter"].to_numpy(dtype=np.float64)
         db = gb["equivalent_diameter"].to_numpy(dtype=np.float64)
-        if da.size and db.size:
+        row["size_ks_note"] = ""
+        if da.size >= 2 and db.size >= 2:
             ks = ks_2samp(da, db)
             row["size_ks_statistic"], row["size_ks_pvalue"] = float(ks.statistic), float(ks.pvalue)
         else:
             row["size_ks_statistic"] = row["size_ks_pvalue"] = np.nan
+            few = [name for name, d in (("A", da), ("B", db)) if d.size < 2]
+            row["size_ks_note"] = f"fewer than 2 droplets in run {' and '.join(few)}: no size test"
         rows.append(row)
-    columns = ["time", "step_a", "step_b"] + [f"{n}_{s}" for n in DROPLET_STATISTICS
-                                               for s in ("a", "b", "diff")] + \
-        ["size_ks_statistic", "size_ks_pvalue"]
+    columns = ["step", "time", "step_a", "step_b"] + [f"{n}_{s}" for n in DROPLET_STATISTICS
+                                                       for s in ("a", "b", "diff")] + \
+        ["size_ks_statistic", "size_ks_pvalue", "size_ks_note"]
     return pd.DataFrame(rows, columns=columns)

@@ -26,7 +26,7 @@ Reference tables have one row per checked quantity with the columns
     Where the value comes from; carried to the result.
 
 The result of a check has the columns ``quantity, value, time, reference,
-reference_low, reference_high, verdict`` (``pass`` inside the band, ``off``
+reference_low, reference_high, verdict`` (``pass`` inside the band, ``fail``
 outside, ``n/a`` when the run does not cover the quantity, e.g. it ends before
 the checked time) and ``source``.
 """
@@ -172,7 +172,7 @@ def check_against_table(run: pd.DataFrame, reference) -> pd.DataFrame:
     reference_high, verdict, source``
         ``value`` is the run's value, ``time`` the time it belongs to (the
         checked time, or the time of the extremum), ``verdict`` ``pass``,
-        ``off`` or ``n/a`` (run does not cover the time, or the column is all NaN).
+        ``fail`` or ``n/a`` (run does not cover the time, or the column is all NaN).
 
     Raises
     ------
@@ -213,7 +213,7 @@ def check_against_table(run: pd.DataFrame, reference) -> pd.DataFrame:
             verdict = "n/a"
         else:
             slack = 1e-12 * max(abs(low), abs(high), 1.0)
-            verdict = "pass" if low - slack <= value <= high + slack else "off"
+            verdict = "pass" if low - slack <= value <= high + slack else "fail"
         rows.append((quantity, value, at, float(ref["value"]), float(low), float(high), verdict,
                      ref["source"]))
     return pd.DataFrame(rows, columns=list(CHECK_COLUMNS))

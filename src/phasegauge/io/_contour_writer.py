@@ -3,7 +3,10 @@
 A contour (:class:`phasegauge.model.contour.Contour`) becomes a VTK
 unstructured grid of line (2D) or triangle (3D) cells through meshio: ``.vtu``
 (XML) or ``.vtk`` (legacy). Each element carries two cell arrays: ``cell``, the
-mesh cell it lies in, and ``size``, its length or area. The file appears in
+mesh cell it lies in, and ``size``, its length or area. A ``.vtu`` file also carries
+the step's time and number as one-value field-data arrays ``TimeValue`` and ``step``
+(the names VTK's own writers and readers use for a file's time), so a folder of them
+reads back as a series. The file appears in
 one step (written beside its final place, then renamed), so a reader never sees
 half a file.
 """
@@ -54,7 +57,7 @@ def _format_of(path: Path) -> str:
     return CONTOUR_SUFFIXES[suffix]
 
 
-def write_contour(contour, path) -> Path:
+def write_contour(contour, path, *, time: float | None = None, step: int | None = None) -> Path:
     """Write a contour as a VTK file, atomically.
 
     Parameters
@@ -63,6 +66,10 @@ def write_contour(contour, path) -> Path:
         Segments (2D) or triangles (3D).
     path : str or os.PathLike
         Target file, ``.vtu`` or ``.vtk``; replaced if it exists.
+    time : float, optional
+        Time of the step, kept as the field-data array ``TimeValue`` (``.vtu`` only).
+    step : int, optional
+        Number of the step, kept as the field-data array ``step`` (``.vtu`` only).
 
     Returns
     -------
@@ -105,6 +112,8 @@ def write_contour(contour, path) -> Path:
             Path(tmp).write_text(_EMPTY[file_format], encoding="ascii")
         else:
             meshio.write(tmp, mesh, file_format=file_format)
+        if file_format == "vtu" and (time is not None or step is not None):
+            _add_field_data(Path(tmp), time, step)
         os.replace(tmp, path)
     except OSError as err:
         raise OutputError(f"cannot write the contour: {err}", where=str(path),
@@ -113,6 +122,20 @@ def write_contour(contour, path) -> Path:
         if os.path.exists(tmp):
             os.remove(tmp)
     return path
+
+
+def _add_field_data(path: Path, time, step) -> None:
+    """Put ``TimeValue`` and ``step`` as one-value FieldData arrays into a VTU file (meshio writes none)."""
+    arrays = []
+    if time is not None and np.isfinite(time):
+        arrays.append(f'<DataArray type="Float64" Name="TimeValue" NumberOfTuples="1" format="ascii">'
+                      f'{float(time)!r}</DataArray>')
+    if step is not None:
+        arrays.append(f'<DataArray type="Int64" Name="step" NumberOfTuples="1" format="ascii">{int(step)}'
+                      '</DataArray>')
+    text = path.read_text(encoding="ascii")
+    block = "<FieldData>\n" + "\n".join(arrays) + "\n</FieldData>\n"
+    path.write_text(text.replace("<UnstructuredGrid>\n", "<UnstructuredGrid>\n" + block, 1), encoding="ascii")
 
 
 def read_contour(path, *, plane_axes=None, dimension: int = 3):

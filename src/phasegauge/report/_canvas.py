@@ -6,7 +6,7 @@ without a display; the caller saves them (:func:`._files.atomic_save_figure`).
 
 from __future__ import annotations
 
-__all__ = ["new_figure"]
+__all__ = ["new_figure", "legend_outside"]
 
 
 def new_figure(width: float = 6.4, height: float = 4.0):
@@ -22,3 +22,8 @@ def new_figure(width: float = 6.4, height: float = 4.0):
     figure = Figure(figsize=(width, height), layout="constrained")
     FigureCanvasAgg(figure)
     return figure
+
+
+def legend_outside(ax, **options):
+    """The legend of ``ax`` to the right of its plotting area, where it covers no data."""
+    return ax.legend(fontsize="small", loc="upper left", bbox_to_anchor=(1.02, 1.0), borderaxespad=0.0, **options)

@@ -83,6 +83,12 @@ def write_compare_report(out, result, *, specs, overlays, inputs: list, version:
     page = Page("phasegauge comparison report",
                 f"{a}: {os.path.abspath(specs[0].path)} ('{specs[0].field}')  ·  "
                 f"{b}: {os.path.abspath(specs[1].path)} ('{specs[1].field}')  ·  phasegauge {version}")
+    page.heading("Findings")
+    findings = _compare_findings(result)
+    page.items(findings or ["no flags in either run and no failed reference check"],
+               css="flag" if findings else "ok")
+    page.heading("Key figures")
+    page.key_values(_compare_key_figures(result))
     page.heading("Paired steps")
     unpaired = "; ".join(f"{k}: {len(v)} unpaired" for k, v in result.unpaired.items())
     page.paragraph(f"{len(result.pairs)} paired times; {unpaired}.")
@@ -98,13 +104,53 @@ def write_compare_report(out, result, *, specs, overlays, inputs: list, version:
         page.figures(pngs)
     if result.droplet_statistics is not None and len(result.droplet_statistics):
         page.heading("Droplet statistics")
-        page.table(result.droplet_statistics)
+        stats = result.droplet_statistics
+        shown = [c for c in ("step", "time", "droplet_count_a", "droplet_count_b", "mean_equivalent_diameter_a",
+                             "mean_equivalent_diameter_b", "size_ks_pvalue", "size_ks_note") if c in stats]
+        page.table(stats[shown])
+        page.paragraph("_a is " + a + ", _b is " + b + "; every column is in droplet_statistics.csv.", "note")
     page.paragraph("All columns are in comparison.csv; each run's own steps table is in steps_<label>.csv.", "note")
     page.paragraph(CAUTION, "note")
     atomic_write_text(os.path.join(out, "report.html"), page.render())
     written.append("report.html")
     record = manifest("compare", version=version, inputs=inputs,
-                      fields={"runs": [dataclasses.asdict(s) for s in specs], "level": level},
+                      fields={"runs": [dataclasses.asdict(s) for s in specs], "level": level,
+                              "options": {label: _plain(dataclasses.asdict(run.options)) for label, run in
+                                          zip(result.labels, (result.first, result.second))},
+                              "skipped_steps": {label: list(run.skipped) for label, run in
+                                                zip(result.labels, (result.first, result.second))},
+                              "warnings": {label: list(run.flags) for label, run in
+                                           zip(result.labels, (result.first, result.second))}},
                       outputs=written, timings={"total_seconds": round(time.time() - started, 3)})
     atomic_write_json(os.path.join(out, "manifest.json"), record)
     atomic_write_json(os.path.join(out, RUN_MARKER), {"run_key": "", "state": "complete"})
+
+
+def _plain(options: dict) -> dict:
+    return {k: (list(v) if isinstance(v, tuple) else v) for k, v in options.items()}
+
+
+def _compare_findings(result) -> list:
+    """Each run's flags (named by its label) and every reference check that failed."""
+    found = [f"{label}: {flag}" for label, run in zip(result.labels, (result.first, result.second))
+             for flag in run.flags]
+    checks = result.reference_checks
+    if checks is not None and len(checks) and "verdict" in checks:
+        for row in checks[checks["verdict"] == "fail"].itertuples(index=False):
+            found.append(f"reference check fail: {row.quantity} = {row.value:.4g}, expected "
+                         f"{row.reference_low:.4g} to {row.reference_high:.4g} ({row.source})")
+    return found
+
+
+def _compare_key_figures(result) -> list:
+    table = result.comparison
+    pairs = [("paired times", len(result.pairs))]
+    for label, column, how in (("Dice coefficient, lowest", "dice", "min"),
+                               ("Hausdorff distance, largest", "hausdorff", "max"),
+                               ("mean interface distance, largest", "mean_distance", "max")):
+        if column in table and table[column].notna().any():
+            pairs.append((label, getattr(table[column], how)()))
+    for column, label in (("phase_volume_a", result.labels[0]), ("phase_volume_b", result.labels[1])):
+        if column in table and len(table):
+            pairs.append((f"phase volume of {label}, last paired time", table[column].iloc[-1]))
+    return pairs

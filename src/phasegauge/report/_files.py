@@ -108,12 +108,25 @@ def atomic_write_csv(path, frame) -> None:
     atomic_write_text(path, buffer.getvalue())
 
 
+#: the formats plots can be saved in
+PLOT_FORMATS = ("png", "svg", "pdf")
+
+
 def atomic_save_figure(path, figure, *, dpi: int = 110) -> bytes:
-    """Save a matplotlib figure as PNG atomically; return the PNG bytes."""
+    """Save a matplotlib figure atomically in the format its suffix names (png, svg, pdf).
+
+    Returns the figure as PNG bytes (for embedding in a report page), whatever the file's format.
+    """
+    suffix = os.path.splitext(os.fspath(path))[1].lower().lstrip(".") or "png"
     buffer = io.BytesIO()
     figure.savefig(buffer, format="png", dpi=dpi, bbox_inches="tight")
     data = buffer.getvalue()
-    atomic_write_bytes(path, data)
+    if suffix == "png":
+        atomic_write_bytes(path, data)
+    else:
+        other = io.BytesIO()
+        figure.savefig(other, format=suffix, dpi=dpi, bbox_inches="tight")
+        atomic_write_bytes(path, other.getvalue())
     return data
 
 

@@ -17,14 +17,14 @@ CAUTION = ("These figures describe the simulation, not the physical process. Des
            "validated models, experiments and licensed engineering judgement under local codes.")
 
 
-def save_figures(out: str, figures, written: list) -> list:
-    """Save each (file stem, caption, Figure) as ``out/<stem>.png``; return (caption, PNG bytes) pairs.
+def save_figures(out: str, figures, written: list, plot_format: str = "png") -> list:
+    """Save each (file stem, caption, Figure) as ``out/<stem>.<plot_format>``; return (caption, PNG bytes) pairs.
 
     The names of the files are appended to ``written``.
     """
     pngs = []
     for stem, caption, fig in figures:
-        name = f"{stem}.png"
+        name = f"{stem}.{plot_format}"
         pngs.append((caption, atomic_save_figure(os.path.join(out, name), fig)))
         written.append(name)
     return pngs
@@ -99,13 +99,20 @@ def write_measure_report(out, result, *, series: dict, inputs: list, snapshots: 
     if result.audit:
         atomic_write_json(os.path.join(out, "diffusion_audit.json"), result.audit)
         written.append("diffusion_audit.json")
-    pngs = save_figures(out, measure_figures(result, snapshots), written)
-    page = _page(result, series, pngs, execution, version)
+    execution = dict(execution)
+    plot_format = execution.pop("plot_format", "png")
+    pngs = save_figures(out, measure_figures(result, snapshots), written, plot_format)
+    has_contours = os.path.isdir(os.path.join(out, "contours"))
+    page = _page(result, series, pngs, execution, version, written=list(written), contours=has_contours)
     atomic_write_text(os.path.join(out, "report.html"), page.render())
     written.append("report.html")
     contours = sorted(os.listdir(os.path.join(out, "contours"))) if os.path.isdir(
         os.path.join(out, "contours")) else []
-    fields = {"series": dict(series), "options": _options_dict(result.options), "execution": execution,
+    execution = dict(execution)
+    options = {**_options_dict(result.options), "contours": execution.pop("contours", True),
+               "plot_format": plot_format, "keep_cache": execution.pop("keep_cache", False)}
+    invocation = execution.pop("invocation", None)
+    fields = {"invocation": invocation, "series": dict(series), "options": options, "execution": execution,
               "skipped_steps": result.skipped, "warnings": list(step_warnings), "flags": result.flags,
               "interface_kind": (result.audit or {}).get("interface_kind")}
     timings = {"total_seconds": round(time.time() - started, 3), "report_seconds": round(time.time() - t0, 3),
@@ -114,6 +121,24 @@ def write_measure_report(out, result, *, series: dict, inputs: list, snapshots: 
                       outputs=written + [f"contours/{c}" for c in contours], timings=timings)
     atomic_write_json(os.path.join(out, "manifest.json"), record)
     atomic_write_json(os.path.join(out, RUN_MARKER), {"run_key": _marker_key(out), "state": "complete"})
+
+
+def _ran(opts) -> list:
+    """The settings of the analyses that ran (and of the step choice, when one was made)."""
+    pairs = []
+    if opts.steps is not None or opts.time_from is not None or opts.time_to is not None or opts.every != 1:
+        pairs.append(("steps chosen", ", ".join(f"{k} {v}" for k, v in (
+            ("steps", opts.steps), ("from time", opts.time_from), ("to time", opts.time_to),
+            ("every", opts.every if opts.every != 1 else None)) if v is not None)))
+    if "interface" in opts.analyses or "droplets" in opts.analyses:
+        pairs.append(("interface level", opts.level))
+    if opts.velocity:
+        pairs.append(("velocity field", opts.velocity))
+    if "droplets" in opts.analyses:
+        pairs += [("droplet adjacency", opts.adjacency), ("periodic axes", ", ".join(opts.periodic) or "none")]
+    if "mixing" in opts.analyses and opts.section_axis:
+        pairs += [("cross sections along", opts.section_axis), ("mixing target", opts.mixing_target)]
+    return pairs
 
 
 def _marker_key(out: str) -> str:
@@ -154,6 +179,7 @@ def _key_figures(result) -> list:
     add("droplets, first step", "droplet_count", lambda v: v[0])
     add("droplets, last step", "droplet_count", lambda v: v[-1])
     add("mixing index, last step", "mixing_index", lambda v: v[-1])
+    add("mixing length, first step", "mixing_length", lambda v: v[0])
     add("mixing length, last step", "mixing_length", lambda v: v[-1])
     add("bulk composition, lean phase, last measured", "bulk_composition_lean", lambda v: v[np.isfinite(v)][-1])
     add("bulk composition, rich phase, last measured", "bulk_composition_rich", lambda v: v[np.isfinite(v)][-1])
@@ -180,11 +206,11 @@ def _key_figures(result) -> list:
     return pairs
 
 
-def _page(result, series, pngs, execution, version) -> Page:
+def _page(result, series, pngs, execution, version, *, written=(), contours=False) -> Page:
     opts = result.options
     page = Page("phasegauge measure report",
                 f"{series['path']} · {series['steps']} steps · field '{opts.field}' mapped from "
-                f"[{opts.value_range[0]:g}, {opts.value_range[1]:g}] ({opts.phase} phase) · "
+                f"[{opts.range[0]:g}, {opts.range[1]:g}] ({opts.phase} phase) · "
                 f"phasegauge {version}")
     page.heading("Findings")
     if result.flags:
@@ -213,16 +239,14 @@ def _page(result, series, pngs, execution, version) -> Page:
                      ("field read", series.get("field_read", f"'{opts.field}'")),
                      *[(label, series[key]) for key, label in (("blocks_left_out", "blocks left out"),
                                                                ("order", "step order")) if key in series],
-                     ("analyses", ", ".join(opts.analyses)),
-                     ("interface level", opts.level), ("velocity field", opts.velocity or "none"),
-                     ("droplet adjacency", opts.connectivity),
-                     ("periodic axes", ", ".join(opts.periodic) or "none"),
+                     ("analyses", ", ".join(opts.analyses)), *_ran(opts),
                      ("workers", execution.get("workers")), ("scheduler", execution.get("scheduler") or "none")]
                     + ([("measured as", series["measured_as"])] if series.get("measured_as") else []))
-    page.paragraph("Tables: steps.csv (one row per step), droplets.csv, events.csv"
-                   + (", profiles.csv" if len(result.profiles) else "")
-                   + "; interface geometry per step in contours/; inputs, options and timings in manifest.json.",
-                   "note")
+    tables = [name for name in written if name.endswith((".csv", ".json"))]
+    page.paragraph("Files: " + ", ".join(tables)
+                   + ("; interface geometry per step in contours/ (listed with times in contours/interface.steps)"
+                      if contours else "")
+                   + "; inputs, options and timings in manifest.json.", "note")
     if result.skipped:
         page.heading("Skipped steps")
         page.items(result.skipped, css="flag")

@@ -11,7 +11,7 @@ from __future__ import annotations
 import numpy as np
 
 from ..errors import OptionError
-from ._canvas import new_figure
+from ._canvas import legend_outside, new_figure
 
 __all__ = ["plot_interface_overlay", "plot_metric_curves", "plot_metric_differences",
            "plot_shape_history", "plot_reference_check"]
@@ -61,7 +61,7 @@ def plot_interface_overlay(mismatch, extent, segments_a, segments_b, *, labels=(
     ax.set_ylim(y0, y1)
     ax.set_xlabel(axis_names[0])
     ax.set_ylabel(axis_names[1])
-    ax.legend(loc="upper right", fontsize=8)
+    legend_outside(ax)
     heading = title or f"interfaces c = {level:g}"
     ax.set_title(heading + " (shaded: phases differ)", fontsize=10)
     return fig
@@ -108,9 +108,10 @@ def plot_metric_curves(comparison, *, metrics=None, labels=("A", "B")):
     for ax, name in zip(panels, names):
         ax.plot(t, comparison[f"{name}_a"], "-o", ms=2.5, color="tab:blue", label=labels[0])
         ax.plot(t, comparison[f"{name}_b"], "--s", ms=2.5, color="tab:red", label=labels[1])
-        ax.set_title(name, fontsize=9)
+        ax.set_title(_words(name), fontsize=9)
         ax.set_xlabel("time")
-        ax.legend(fontsize=7)
+        ax.set_ylabel(_words(name), fontsize=8)
+        legend_outside(ax)
     return fig
 
 
@@ -128,7 +129,8 @@ def plot_metric_differences(comparison, *, metrics=None, relative: bool = True):
     for ax, name in zip(panels, names):
         ax.axhline(0.0, color="0.6", lw=0.8)
         ax.plot(t, comparison[f"{name}{suffix}"], "-o", ms=2.5, color="tab:purple")
-        ax.set_title(f"{name}: {'(A - B) / |B|' if relative else 'A - B'}", fontsize=9)
+        ax.set_title(f"{_words(name)}: {'(A - B) / |B|' if relative else 'A - B'}", fontsize=9)
+        ax.set_ylabel("relative difference" if relative else "difference", fontsize=8)
         ax.set_xlabel("time")
     return fig
 
@@ -152,8 +154,9 @@ def plot_shape_history(shapes, *, columns=("mismatch_volume", "dice", "hausdorff
     t = shapes["time"].to_numpy(dtype=float)
     for ax, name in zip(panels, cols):
         ax.plot(t, shapes[name], "-o", ms=2.5, color="tab:green")
-        ax.set_title(name, fontsize=9)
+        ax.set_title(_words(name), fontsize=9)
         ax.set_xlabel("time")
+        ax.set_ylabel(_words(name), fontsize=8)
     return fig
 
 
@@ -190,6 +193,12 @@ def plot_reference_check(run, checks, *, columns=None):
                             fmt="o", color=colour, ms=4, capsize=3)
             else:
                 ax.axhspan(row["reference_low"], row["reference_high"], color=colour, alpha=0.15)
-        ax.set_title(col, fontsize=9)
+        ax.set_title(_words(col), fontsize=9)
         ax.set_xlabel("time")
+        ax.set_ylabel(_words(col), fontsize=8)
     return fig
+
+
+def _words(name: str) -> str:
+    """A column name as words for a plot title (``mean_distance`` -> ``mean distance``)."""
+    return str(name).replace(":", ": ").replace("_", " ")

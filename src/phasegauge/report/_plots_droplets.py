@@ -13,7 +13,7 @@ import pandas as pd
 from matplotlib.figure import Figure
 
 from ..errors import OptionError
-from ._canvas import new_figure
+from ._canvas import legend_outside, new_figure
 
 __all__ = ["plot_droplet_count", "plot_size_distribution"]
 
@@ -69,7 +69,7 @@ def plot_droplet_count(table: pd.DataFrame, events: pd.DataFrame | None = None) 
     ax.set_xlabel("time")
     ax.set_ylabel("droplet count")
     ax.yaxis.get_major_locator().set_params(integer=True)
-    ax.legend(loc="best", fontsize="small")
+    legend_outside(ax)
     ax.grid(alpha=0.3)
     return fig
 
@@ -107,6 +107,6 @@ def plot_size_distribution(droplets: pd.DataFrame, *, column: str = "equivalent_
             ax.set_yscale("log")
     ax.set_xlabel("time")
     ax.set_ylabel(column.replace("_", " "))
-    ax.legend(loc="best", fontsize="small")
+    legend_outside(ax)
     ax.grid(alpha=0.3)
     return fig

@@ -9,7 +9,7 @@ from __future__ import annotations
 import numpy as np
 
 from ..errors import OptionError
-from ._canvas import new_figure
+from ._canvas import legend_outside, new_figure
 
 __all__ = ["plot_interface_width", "plot_interface_snapshots", "plot_coarsening"]
 
@@ -55,7 +55,7 @@ def plot_interface_width(steps_df, *, time_column: str = "time", title: str | No
             top.plot(t, steps_df[name].to_numpy(dtype=float), styles.get(name, "--"), label=label,
                      markersize=3)
     top.set_ylabel("width (length)")
-    top.legend(fontsize="small")
+    legend_outside(top)
     top.grid(alpha=0.3)
     if "interface_width_cells" in steps_df.columns:
         bottom.plot(t, steps_df["interface_width_cells"].to_numpy(dtype=float), "-o", markersize=3,
@@ -64,7 +64,7 @@ def plot_interface_width(steps_df, *, time_column: str = "time", title: str | No
                    label="4 cells across 0.1 < c < 0.9")
     bottom.set_ylabel("width (cells)")
     bottom.set_xlabel(column or "step")
-    bottom.legend(fontsize="small")
+    legend_outside(bottom)
     bottom.grid(alpha=0.3)
     if title:
         fig.suptitle(title)
@@ -123,7 +123,8 @@ def plot_interface_snapshots(interfaces_by_step, *, bounds, axis_names=("x", "y"
     if lo.size == 2:
         fig = new_figure(6.5, 6.0)
         ax = fig.subplots()
-        colours = [colormaps["viridis"](x) for x in np.linspace(0, 1, len(steps))]
+        # viridis from dark blue to teal (0.55): its greens and yellow are too light to read on white
+        colours = [colormaps["viridis"](x) for x in np.linspace(0, 0.55, len(steps))]
         for colour, step in zip(colours, steps):
             points, elements = interfaces_by_step[step]
             ax.add_collection(LineCollection(np.asarray(points)[np.asarray(elements)], colors=[colour],
@@ -133,11 +134,11 @@ def plot_interface_snapshots(interfaces_by_step, *, bounds, axis_names=("x", "y"
         ax.set_aspect("equal")
         ax.set_xlabel(axis_names[0])
         ax.set_ylabel(axis_names[1])
-        ax.legend(fontsize="small", loc="upper right")
+        legend_outside(ax)
     else:
         from mpl_toolkits.mplot3d.art3d import Poly3DCollection
 
-        cols = min(3, len(steps))
+        cols = 2 if len(steps) == 4 else min(3, len(steps))  # no empty panel for the usual 4 snapshots
         rows = int(np.ceil(len(steps) / cols))
         fig = new_figure(4.0 * cols, 3.8 * rows)
         for i, step in enumerate(steps):
@@ -150,6 +151,9 @@ def plot_interface_snapshots(interfaces_by_step, *, bounds, axis_names=("x", "y"
             ax.set_xlim(lo[0], hi[0])
             ax.set_ylim(lo[1], hi[1])
             ax.set_zlim(lo[2], hi[2])
+            ax.set_xlabel(axis_names[0], fontsize="small")
+            ax.set_ylabel(axis_names[1], fontsize="small")
+            ax.set_zlabel(axis_names[2] if len(axis_names) > 2 else "z", fontsize="small")
             ax.set_title(label(step), fontsize="small")
     if title:
         fig.suptitle(title)

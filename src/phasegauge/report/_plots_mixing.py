@@ -11,7 +11,7 @@ import pandas as pd
 from matplotlib.figure import Figure
 
 from ..errors import OptionError
-from ._canvas import new_figure
+from ._canvas import legend_outside, new_figure
 
 __all__ = ["plot_mixing_profile", "plot_phase_volume_drift", "plot_mixing_index"]
 
@@ -70,7 +70,7 @@ def plot_mixing_profile(profiles: dict, *, weighting: str = "flow", target: floa
     ax.set_ylim(min(0.0, ax.get_ylim()[0]), max(1.05, ax.get_ylim()[1]))
     ax.grid(True, alpha=0.3)
     if profiles:
-        ax.legend(fontsize="small")
+        legend_outside(ax)
     return figure
 
 
@@ -101,7 +101,7 @@ def plot_phase_volume_drift(steps_df: pd.DataFrame) -> Figure:
     if "phase_volume_drift_closed" in steps_df:
         ax.plot(t, steps_df["phase_volume_drift_closed"], marker="s", markersize=3,
                 label="with boundary outflow added back")
-        ax.legend(fontsize="small")
+        legend_outside(ax)
     ax.axhline(0.0, color="0.4", linewidth=0.8)
     ax.set_xlabel(label)
     ax.set_ylabel("phase volume drift (relative)")
@@ -131,7 +131,8 @@ def plot_mixing_index(steps_df: pd.DataFrame) -> Figure:
         ax.plot(t, steps_df["mixed_volume_fraction"], marker="s", markersize=3,
                 label="mixed volume fraction (0.05 < c < 0.95)")
     ax.set_xlabel(label)
+    ax.set_ylabel("mixing index, mixed fraction (dimensionless)")
     ax.set_ylim(-0.02, 1.02)
     ax.grid(True, alpha=0.3)
-    ax.legend(fontsize="small")
+    legend_outside(ax)
     return figure

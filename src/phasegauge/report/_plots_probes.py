@@ -7,7 +7,7 @@ from __future__ import annotations
 
 import numpy as np
 
-from ._canvas import new_figure
+from ._canvas import legend_outside, new_figure
 
 __all__ = ["plot_probe_histories", "plot_line_profiles", "plot_validation_overlay"]
 
@@ -32,7 +32,7 @@ def plot_probe_histories(probes, *, limit: int = 12):
     title = "Probe histories" + (f" (first {limit} of {len(names)})" if len(names) > limit else "")
     ax.set_title(title)
     if names:
-        ax.legend(fontsize="small", ncol=2 if len(names[:limit]) > 6 else 1)
+        legend_outside(ax, ncol=2 if len(names[:limit]) > 6 else 1)
     return figure
 
 
@@ -65,7 +65,7 @@ def plot_line_profiles(lines, *, steps=None, max_lines: int = 4, max_steps: int 
         ax.set_ylabel("field value")
         ax.set_title(f"line {name}")
     if names:
-        axes[0].legend(fontsize="small")
+        legend_outside(axes[0])
     return figure
 
 
@@ -96,7 +96,7 @@ def plot_validation_overlay(table, summary=None):
         lo = float(min(measured[ok].min(), simulated[ok].min()))
         hi = float(max(measured[ok].max(), simulated[ok].max()))
         ax.plot([lo, hi], [lo, hi], color="k", lw=0.8, ls="--", label="simulated = measured")
-        ax.legend(fontsize="small", loc="lower right")
+        legend_outside(ax)
     ax.set_xlabel("measured")
     ax.set_ylabel("simulated")
     title = "Simulation against measurement"

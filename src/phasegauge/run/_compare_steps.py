@@ -21,6 +21,7 @@ from ..analysis import compare as cmp
 from ..errors import OptionError, PhasegaugeError, PhasegaugeWarning
 from ..model.axes import AXIS_NAMES
 from .measure import MeasureOptions
+from .options import accept_old_names
 
 __all__ = ["SampledField", "SamplingOptions", "SamplingPlan", "plan_sampling", "paired_shapes",
            "overlay_arrays"]
@@ -42,6 +43,7 @@ class SampledField:
     values: np.ndarray
 
 
+@accept_old_names
 @dataclass(frozen=True)
 class SamplingOptions(MeasureOptions):
     """Measure options whose step workers also sample c on the comparison grid.

@@ -150,7 +150,7 @@ def sample_step(mesh, indicator, options, *, where: str = ""):
     points, parts = sample_layout(options)
     sampler = point_sampler(mesh, points)
     c = sampler(indicator.point)
-    lo, hi = options.value_range
+    lo, hi = options.range
     value = lo + (hi - lo) * (c if options.phase == "upper" else 1.0 - c)
     if not sampler.inside.all():
         warnings.warn(MeshWarning(f"points outside the mesh (their values are empty): "

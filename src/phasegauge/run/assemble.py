@@ -482,7 +482,7 @@ def _expected_shift(steps, droplets, options):
     gap = model.rich - model.lean
     sigma = gap ** 3 * np.sqrt(2.0 * model.kappa * model.height) / 6.0
     mu = (dim - 1) * sigma / (radius * gap)
-    lo, hi = options.value_range
+    lo, hi = options.range
     return float(mu / (2.0 * model.height * gap ** 2) / (hi - lo))
 
 

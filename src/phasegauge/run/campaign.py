@@ -82,7 +82,7 @@ def _finished(folder: str):
 
 def run_campaign(runs: list, options, *, out, parameter: str = "parameter", unit: str = "",
                  overwrite: bool = False, resume: bool = False, workers: int = 1, progress=False,
-                 write_contours: bool = True, snapshots: int = 4) -> CampaignResult:
+                 contours: bool = True, snapshots: int = 4) -> CampaignResult:
     """Measure every run of a campaign and tabulate its summary figures against the parameter.
 
     Parameters
@@ -130,7 +130,7 @@ def run_campaign(runs: list, options, *, out, parameter: str = "parameter", unit
             done = _finished(folder) if resume else None
             if done is None:
                 res = measure(r["path"], options=options, out=folder, workers=workers, progress=progress,
-                              resume=resume and os.path.isdir(folder), write_contours=write_contours,
+                              resume=resume and os.path.isdir(folder), contours=contours,
                               snapshots=snapshots)
                 steps, audit = res.steps, res.audit
             else:

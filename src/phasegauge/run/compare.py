@@ -135,10 +135,11 @@ def _compare_runs(first, second, *, out, overwrite, level, time_tolerance, spaci
     plan = plan_sampling(*both, spacing=spacing, time_tolerance=time_tolerance)  # (closes them)
     runs = []
     for k, spec in enumerate((first, second)):
-        options = MeasureOptions(field=spec.field, value_range=spec.value_range, phase=spec.phase, level=level,
+        options = MeasureOptions(field=spec.field, range=spec.value_range, phase=spec.phase, level=level,
                                  velocity=spec.velocity, field_location=spec.field_location,
                                  sort_by_time=spec.sort_by_time)
-        res = measure(spec.path, options=plan.options(options, k), workers=workers, progress=progress, snapshots=0)
+        res = measure(spec.path, options=plan.options(options, k), workers=workers, progress=progress, snapshots=0,
+                      progress_label=f"steps of {labels[k]}")
         res.options = options
         runs.append(res)
     res_a, res_b = runs
@@ -157,14 +158,7 @@ def _compare_runs(first, second, *, out, overwrite, level, time_tolerance, spaci
             s.close()
     for r in res_a.results + res_b.results:
         r.extra = None  # the sampled fields are used up
-    if shapes:
-        shape_df = pd.DataFrame(shapes)
-        comparison = metrics.merge(shape_df, on=["step_a", "step_b"], how="left")
-        lead = ["time", "step_a", "step_b", "time_a", "time_b"] + [c for c in cmp.SHAPE_COLUMNS if c in comparison]
-        lead = [c for c in dict.fromkeys(lead) if c in comparison]
-        comparison = comparison[lead + [c for c in comparison.columns if c not in lead]]
-    else:
-        comparison = metrics
+    comparison = comparison_table(metrics, pd.DataFrame(shapes) if shapes else None, labels)
     drop_stats = cmp.compare_droplet_statistics(res_a.droplets, res_b.droplets, pairs)
     checks = []
     if rising_bubble:
@@ -187,6 +181,30 @@ def _compare_runs(first, second, *, out, overwrite, level, time_tolerance, spaci
         write_compare_report(out, result, specs=(first, second), overlays=overlays, inputs=inputs,
                              version=package_version(), started=started, level=level)
     return result
+
+
+def comparison_table(metrics: pd.DataFrame, shapes, labels) -> pd.DataFrame:
+    """comparison.csv: ``step, time`` (the first run's), the paired steps and times, the runs' labels,
+    the shape measures, then each metric of both runs.
+
+    A shape measure taken on the common grid under a name the steps tables also have (the
+    interface size of each run) is kept as ``grid_<name>``, so no column is doubled by the join.
+    """
+    if shapes is not None and len(shapes):
+        keys = ["step_a", "step_b"]
+        shapes = shapes.rename(columns={c: f"grid_{c}" for c in shapes.columns
+                                        if c in metrics.columns and c not in keys})
+        comparison = metrics.merge(shapes, on=keys, how="left")
+    else:
+        comparison = metrics.copy()
+    comparison.insert(0, "step", comparison["step_a"])
+    comparison["label_a"], comparison["label_b"] = labels[0], labels[1]
+    lead = ["step", "time", "step_a", "step_b", "time_a", "time_b", "label_a", "label_b"]
+    from ..analysis.compare import SHAPE_COLUMNS
+
+    lead += [c for c in SHAPE_COLUMNS if c in comparison]
+    lead = [c for c in dict.fromkeys(lead) if c in comparison]
+    return comparison[lead + [c for c in comparison.columns if c not in lead]]
 
 
 def _reference_quantities(result):

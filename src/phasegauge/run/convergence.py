@@ -222,7 +222,7 @@ def _run(fine, medium, coarse, *, options, cell_sizes, safety_factor, out, overw
     for source in sources:
         if source.kind == "series":
             res = measure(source.path, options=options, workers=workers, progress=progress, snapshots=0,
-                          write_contours=False)
+                          contours=False)
             source.steps, source.droplets = res.steps, res.droplets
     tables = []
     for source in sources:

@@ -27,7 +27,7 @@ from collections import deque
 from ..errors import AnalysisError, OptionError, short_text
 from .options import wrong_field_option
 
-__all__ = ["run_steps"]
+__all__ = ["run_steps", "check_scheduler"]
 
 
 def run_steps(runner, indices, *, workers: int = 1, scheduler: str | None = None, feed=None,
@@ -353,12 +353,19 @@ def _dask_step(runner, index: int, held: frozenset):
     return result
 
 
+def check_scheduler(scheduler) -> None:
+    """Refuse a Dask scheduler when Dask is not installed, before any step runs."""
+    import importlib.util
+
+    if scheduler and importlib.util.find_spec("distributed") is None:
+        raise OptionError(f"a Dask scheduler ({scheduler}) needs the optional 'cluster' extra, which is not "
+                          "installed", fix='pip install ".[cluster]" (from the phasegauge folder; see the README)')
+
+
 def _run_dask(runner, indices, scheduler, record, feed) -> list:
-    try:
-        from distributed import Client, LocalCluster, as_completed
-    except ImportError:
-        raise OptionError("a Dask cluster needs the 'cluster' extra",
-                          fix="pip install 'phasegauge[cluster]'") from None
+    check_scheduler(scheduler)
+    from distributed import Client, LocalCluster, as_completed
+
     runner.close()  # the workers open their own files
     held = feed.pinned if feed is not None else frozenset()
     own_cluster = None

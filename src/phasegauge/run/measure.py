@@ -26,7 +26,7 @@ from dataclasses import dataclass, field
 import numpy as np
 
 from ..errors import OptionError, PhasegaugeWarning, SeriesError
-from .options import ANALYSES, MeasureOptions, check_workers
+from .options import ANALYSES, OLD_OPTION_NAMES, MeasureOptions, check_workers, renamed_keywords
 from .step import StepResult, run_step
 
 __all__ = ["MeasureOptions", "StepResult", "MeasureResult", "measure", "run_step", "ANALYSES"]
@@ -88,8 +88,9 @@ class MeasureResult:
 
 def measure(path, field: str | None = None, *, options: MeasureOptions | None = None, out=None,
             workers: int = 1, scheduler: str | None = None, overwrite: bool = False,
-            resume: bool = False, progress: bool | None = False, write_contours: bool = True,
-            snapshots: int = 4, mesh_pool=None, **option_values) -> MeasureResult:
+            resume: bool = False, progress: bool | None = False, contours: bool = True,
+            snapshots: int = 4, mesh_pool=None, invocation: dict | None = None, plot_format: str = "png",
+            keep_cache: bool = False, progress_label: str = "steps", **option_values) -> MeasureResult:
     """Run every analysis on every step of a series.
 
     Parameters
@@ -100,7 +101,9 @@ def measure(path, field: str | None = None, *, options: MeasureOptions | None = 
         Field mapped to the phase indicator (or give ``options``).
     options : MeasureOptions, optional
         All analysis options at once; otherwise built from ``field`` and
-        ``option_values`` (the fields of :class:`MeasureOptions`).
+        ``option_values`` (the fields of :class:`MeasureOptions`; a wrong name is
+        refused with the nearest one, an old name accepted with an
+        :class:`~phasegauge.errors.OldNameWarning`).
     out : str or os.PathLike, optional
         Output folder for tables, plots, contours, report and manifest.
         Without it nothing is written.
@@ -112,15 +115,27 @@ def measure(path, field: str | None = None, *, options: MeasureOptions | None = 
         What to do with an existing output folder (see
         :func:`phasegauge.report.prepare_output_folder`).
     progress : bool or None
-        Show progress on stderr (None: only on a terminal).
-    write_contours : bool
-        Write the interface of every step as a VTK file under ``out/contours``.
+        Show progress on stderr (None: a live line on a terminal, a whole line every few
+        seconds otherwise, as in a batch log).
+    contours : bool
+        Write the interface of every step as a VTK file under ``out/contours``
+        (old name ``write_contours``).
     snapshots : int
         Number of steps whose interface the report draws.
     mesh_pool : MeshPool, optional
         Where the meshes of the series are kept (see :class:`phasegauge.io.MeshPool`);
         pass the pool of an earlier run on the same meshes to reuse their cached
         work (local workers inherit it). Default: a pool of this run.
+    plot_format : {'png', 'svg', 'pdf'}
+        File format of the plots (the report page embeds PNG images either way).
+    progress_label : str
+        What the progress line counts (``'steps of run A'`` when two runs are measured).
+    keep_cache : bool
+        Keep ``out/.cache`` (the finished steps) after a complete run; by default it is
+        removed once the report is written (an interrupted run always keeps it, for ``resume``).
+    invocation : dict, optional
+        How the run was asked for, kept in the manifest: ``{'command_line': ...}`` or
+        ``{'recipe': text, 'recipe_path': ...}``. Default: ``{'python': 'phasegauge.measure'}``.
 
     Returns
     -------
@@ -148,6 +163,11 @@ def measure(path, field: str | None = None, *, options: MeasureOptions | None = 
     """
     from ..io import Series
 
+    own = ("path", "field", "options", "out", "workers", "scheduler", "overwrite", "resume", "progress",
+           "contours", "snapshots", "mesh_pool", "invocation", "plot_format", "keep_cache", "progress_label")
+    option_values = renamed_keywords(option_values, [f.name for f in dataclasses.fields(MeasureOptions)] + list(own),
+                                     old={**OLD_OPTION_NAMES, "write_contours": "contours"}, where="measure()")
+    contours = option_values.pop("contours", contours)
     if options is None:
         if field is None:
             raise OptionError("a field name is needed", fix="give field='NAME' (see phasegauge.describe_series)")
@@ -156,6 +176,14 @@ def measure(path, field: str | None = None, *, options: MeasureOptions | None = 
         options = dataclasses.replace(options, **({"field": field} if field else {}), **option_values)
     workers = check_workers(workers)
     check_snapshots(snapshots)
+    from .executors import check_scheduler
+
+    check_scheduler(scheduler)
+    from ..report._files import PLOT_FORMATS
+
+    if plot_format not in PLOT_FORMATS:
+        raise OptionError(f"plot format must be one of {', '.join(PLOT_FORMATS)}, found {plot_format!r}",
+                          fix="for example --plot-format svg")
     path = os.fspath(path)
     with warnings.catch_warnings(record=True) as caught:
         warnings.simplefilter("always")
@@ -171,7 +199,10 @@ def measure(path, field: str | None = None, *, options: MeasureOptions | None = 
         with output_transaction(out) as txn:
             return _measure(series, options, out, txn, workers=workers, scheduler=scheduler,
                             overwrite=overwrite, resume=resume, progress=progress,
-                            write_contours=write_contours, snapshots=snapshots, notes=notes)
+                            contours=contours, snapshots=snapshots, notes=notes,
+                            invocation=invocation or {"python": "phasegauge.measure"},
+                            output={"plot_format": plot_format, "keep_cache": bool(keep_cache)},
+                            progress_label=progress_label)
     finally:
         series.close()
 
@@ -216,15 +247,18 @@ def _records(caught) -> list:
 
 
 def _measure(series, options, out, txn, *, workers, scheduler, overwrite, resume, progress,
-             write_contours, snapshots, notes) -> MeasureResult:
+             contours, snapshots, notes, invocation, output, progress_label="steps") -> MeasureResult:
     from .assemble import TrackingFeed, assemble
     from .cache import StepCache
     from .executors import run_steps
     from .progress import Progress
+    from ._selection import chosen_steps
     from .step import StepRunner
 
-    n = len(series)
     started = time.time()
+    indices = chosen_steps(series.times, steps=options.steps, time_from=options.time_from,
+                           time_to=options.time_to, every=options.every, where=series.path)
+    n = len(indices)
     cache = contour_dir = None
     if out is not None:
         from ..report._files import prepare_output_folder
@@ -233,15 +267,15 @@ def _measure(series, options, out, txn, *, workers, scheduler, overwrite, resume
         prepare_output_folder(out, overwrite=overwrite, resume=resume, run_key=run_key)
         cache = StepCache(os.path.join(os.fspath(out), ".cache"), options.key())
         txn.worth_keeping = cache.holds_finished_steps
-        if write_contours and "interface" in options.analyses:
+        if contours and "interface" in options.analyses:
             contour_dir = os.path.join(os.fspath(out), "contours")
             os.makedirs(contour_dir, exist_ok=True)
     runner = StepRunner(series.path, options, cache=cache, contour_dir=contour_dir,
-                        keep=snapshot_steps(n, snapshots), series=series)
-    feed = TrackingFeed(options, range(n), cache=cache)
+                        keep={indices[k] for k in snapshot_steps(n, snapshots)}, series=series)
+    feed = TrackingFeed(options, indices, cache=cache)
     before = input_stamps(series)
-    bar = Progress(n, "steps", enabled=progress)
-    results = run_steps(runner, range(n), workers=workers, scheduler=scheduler, feed=feed, progress=bar)
+    bar = Progress(n, progress_label, enabled=progress)
+    results = run_steps(runner, indices, workers=workers, scheduler=scheduler, feed=feed, progress=bar)
     bar.close()
     _check_read_times(results, options)
     changed = [path for path, stamp in input_stamps(series).items() if before.get(path) != stamp]
@@ -250,6 +284,8 @@ def _measure(series, options, out, txn, *, workers, scheduler, overwrite, resume
                           f"{'them' if len(changed) != 1 else 'it'} ({_short_list(changed)}), so the steps may "
                           "mix old and new content", where=series.path,
                           fix="run again once the solver has finished writing (--overwrite)")
+    if contour_dir is not None:
+        _write_contour_listing(contour_dir, results)
     result = assemble(series, results, options, notes=notes, feed=feed, mesh_pool=runner.mesh_pool)
     result.reading = _reading(series, results)
     if out is not None:
@@ -257,8 +293,29 @@ def _measure(series, options, out, txn, *, workers, scheduler, overwrite, resume
         from ._report_data import measure_report_data
 
         write_measure_report(out, result, **measure_report_data(series, result), started=started,
-                             execution={"workers": workers, "scheduler": scheduler, "resume": resume})
+                             execution={"workers": workers, "scheduler": scheduler, "resume": resume,
+                                        "contours": bool(contours), "invocation": invocation, **output})
+        if not output["keep_cache"]:
+            import shutil
+
+            shutil.rmtree(os.path.join(os.fspath(out), ".cache"), ignore_errors=True)
     return result
+
+
+#: the step listing written beside the contour files
+CONTOUR_LISTING = "interface.steps"
+
+
+def _write_contour_listing(contour_dir: str, results) -> None:
+    """``contours/interface.steps``: a ``time,path`` line per contour file, so the folder reads as a series."""
+    from ..report._files import atomic_write_text
+
+    lines = ["time,path"]
+    for r in sorted(results, key=lambda r: r.index):
+        name = f"interface_{r.index:06d}.vtu"
+        if r.skipped is None and np.isfinite(r.time) and os.path.exists(os.path.join(contour_dir, name)):
+            lines.append(f"{float(r.time)!r},{name}")
+    atomic_write_text(os.path.join(contour_dir, CONTOUR_LISTING), "\n".join(lines) + "\n")
 
 
 def _reading(series, results) -> list:

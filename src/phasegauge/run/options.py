@@ -8,15 +8,83 @@ folder's marker.
 from __future__ import annotations
 
 import dataclasses
+import difflib
+import functools
 import hashlib
 import json
+import warnings
 from dataclasses import dataclass
+from types import MappingProxyType
 
-from ..errors import FieldNotFoundError, FieldShapeError, OptionError
+from ..errors import FieldNotFoundError, FieldShapeError, OldNameWarning, OptionError
 from ..model.axes import AXIS_INDEX
 from ..model.indicator import normalize_field_location, normalize_phase, parse_range
 
-__all__ = ["MeasureOptions", "ANALYSES", "STEP_COLUMNS", "check_workers", "wrong_field_option"]
+__all__ = ["MeasureOptions", "ANALYSES", "STEP_COLUMNS", "OLD_OPTION_NAMES", "check_workers",
+           "wrong_field_option", "renamed_keywords"]
+
+#: old keyword -> the one name of the option (the old one is accepted with an OldNameWarning)
+OLD_OPTION_NAMES = MappingProxyType({"value_range": "range", "connectivity": "adjacency"})
+
+
+def renamed_keywords(given: dict, known, *, old=None, where: str = "", stacklevel: int = 3) -> dict:
+    """Keyword arguments with old names replaced by the current ones; an unknown name refused.
+
+    Parameters
+    ----------
+    given : dict
+        The keywords as the caller wrote them.
+    known : iterable of str
+        The current names.
+    old : dict, optional
+        Old name -> current name (default :data:`OLD_OPTION_NAMES`).
+    where : str
+        What takes the keywords, for the messages (``'measure()'``).
+
+    Returns
+    -------
+    dict
+        The same values under the current names.
+
+    Raises
+    ------
+    OptionError
+        A name that is neither current nor old (with the nearest current name), or
+        an option given under both its old and its current name.
+    """
+    old = OLD_OPTION_NAMES if old is None else old
+    known = list(known)
+    out = {}
+    for key, value in given.items():
+        if key in old and key not in known:
+            new = old[key]
+            if new in given:
+                raise OptionError(f"{where} got '{new}' and its old name '{key}'",
+                                  fix=f"give only {new}=...")
+            warnings.warn(OldNameWarning(f"{where}: '{key}' is the old name of '{new}'; write {new}=... "
+                                         "(the old name will be removed)"), stacklevel=stacklevel)
+            out[new] = value
+        elif key in known:
+            out[key] = value
+        else:
+            close = difflib.get_close_matches(key, known + list(old), n=1, cutoff=0.5)
+            hint = f"did you mean '{old.get(close[0], close[0])}'?" if close else "known: " + ", ".join(sorted(known))
+            raise OptionError(f"{where} has no option '{key}'; {hint}", fix="see the README's table of option names")
+    return out
+
+
+def accept_old_names(cls):
+    """Class decorator: the dataclass ``cls`` takes old option names (with a warning) and
+    answers a wrong keyword with the nearest name; a subclass needs the decorator too."""
+    init = cls.__init__
+
+    @functools.wraps(init)
+    def __init__(self, *args, **kwargs):
+        known = [f.name for f in dataclasses.fields(cls)]
+        init(self, *args, **renamed_keywords(kwargs, known, where=cls.__name__))
+
+    cls.__init__ = __init__
+    return cls
 
 #: the analyses ``measure`` can run
 ANALYSES = ("interface", "droplets", "mixing", "conservation")
@@ -27,6 +95,7 @@ STEP_COLUMNS = ("step", "time", "phase_volume", "phase_volume_drift", "phase_vol
                 "segregation_intensity", "mixing_index", "c_min", "c_max", "overshoot_volume")
 
 
+@accept_old_names
 @dataclass(frozen=True)
 class MeasureOptions:
     """What to measure and how (everything that changes the numbers).
@@ -35,8 +104,8 @@ class MeasureOptions:
     ----------
     field : str
         Field mapped to the phase indicator.
-    value_range : tuple of float
-        Field values mapped to c = 0 and c = 1.
+    range : tuple of float
+        Field values mapped to c = 0 and c = 1 (old name ``value_range``).
     phase : {'upper', 'lower'}
         Which side of the range is the measured phase.
     level : float
@@ -46,8 +115,9 @@ class MeasureOptions:
         flow-weighted cross sections).
     analyses : tuple of str
         Subset of :data:`ANALYSES`.
-    connectivity : {'face', 'point'}
-        Cell adjacency for droplet labelling.
+    adjacency : {'face', 'point'}
+        Cells that share a face (or any point) belong to one droplet (old name
+        ``connectivity``).
     periodic : tuple of str
         Periodic axes (``'x'``, ``'y'``, ``'z'``) for droplet labelling.
     ignore_remerge_within : int
@@ -92,6 +162,13 @@ class MeasureOptions:
         Points where the field and c are kept at every step (``probes.csv``).
     lines : tuple of (name, x0, y0, z0, x1, y1, z1, points)
         Straight lines sampled at evenly spaced points at every step (``lines.csv``).
+    steps : str or None
+        Step numbers to measure, ``START:STOP:STRIDE`` (STOP excluded, as a Python
+        slice) or one number; None for all.
+    time_from, time_to : float or None
+        Measure only steps whose time lies within these bounds (inclusive).
+    every : int
+        Of the steps left, measure every ``every``-th (see :mod:`phasegauge.run._selection`).
     measured : tuple of (x, y, z, value, time, uncertainty)
         Measured values the run is checked against (``validation.csv``); time and
         uncertainty may be NaN (see :func:`phasegauge.io.read_measured_file`).
@@ -116,12 +193,12 @@ class MeasureOptions:
     """
 
     field: str
-    value_range: tuple = (0.0, 1.0)
+    range: tuple = (0.0, 1.0)
     phase: str = "upper"
     level: float = 0.5
     velocity: str | None = None
     analyses: tuple = ANALYSES
-    connectivity: str = "face"
+    adjacency: str = "face"
     periodic: tuple = ()
     ignore_remerge_within: int = 0
     densities: tuple | None = None
@@ -134,6 +211,10 @@ class MeasureOptions:
     segregation_scale: bool = False
     drift_tolerance: float = 1e-3
     strict: bool = False
+    steps: str | None = None
+    time_from: float | None = None
+    time_to: float | None = None
+    every: int = 1
     field_location: str = "auto"
     sort_by_time: bool = False
     keep_3d: bool = False
@@ -164,7 +245,14 @@ class MeasureOptions:
         set_(self, "measured", normalize_measured(self.measured))
         if not isinstance(self.field, str) or not self.field:
             raise OptionError("a field name is needed", fix="give --field NAME (see 'phasegauge inspect')")
-        set_(self, "value_range", parse_range(self.value_range))
+        set_(self, "range", parse_range(self.range))
+        from ._selection import normalize_selection, normalize_steps
+
+        set_(self, "steps", normalize_steps(self.steps))
+        time_from, time_to, every = normalize_selection(self.time_from, self.time_to, self.every)
+        set_(self, "time_from", time_from)
+        set_(self, "time_to", time_to)
+        set_(self, "every", every)
         set_(self, "phase", normalize_phase(self.phase))
         level = float(self.level)
         if not 0.0 < level < 1.0:
@@ -177,8 +265,8 @@ class MeasureOptions:
             raise OptionError(f"unknown analyses {unknown}" if unknown else "no analysis chosen",
                               fix="choose from " + ", ".join(ANALYSES))
         set_(self, "analyses", tuple(a for a in ANALYSES if a in analyses))
-        if self.connectivity not in ("face", "point"):
-            raise OptionError(f"connectivity must be 'face' or 'point', found {self.connectivity!r}",
+        if self.adjacency not in ("face", "point"):
+            raise OptionError(f"adjacency must be 'face' or 'point', found {self.adjacency!r}",
                               fix="'face' keeps droplets that touch at a corner apart")
         periodic = tuple(str(a).lower() for a in (self.periodic or ()))
         if any(a not in AXIS_INDEX for a in periodic):
@@ -195,7 +283,7 @@ class MeasureOptions:
             set_(self, "section_positions", tuple(float(p) for p in self.section_positions))
             if self.section_axis is None:
                 raise OptionError("section positions are given without a section axis, so no section would be "
-                                  "cut", fix="name the axis the planes are normal to (--sections x)")
+                                  "cut", fix="name the axis the planes are normal to (--section-axis x)")
         if self.densities is not None:
             dens = tuple(float(d) for d in self.densities)
             if len(dens) != 2 or min(dens) < 0:
@@ -219,6 +307,18 @@ class MeasureOptions:
 
         for name, value in normalize_mixture(self).items():
             set_(self, name, value)
+
+    @property
+    def value_range(self):
+        """Old name of :attr:`range` (warns)."""
+        warnings.warn(OldNameWarning("'value_range' is the old name of 'range'"), stacklevel=2)
+        return self.range
+
+    @property
+    def connectivity(self):
+        """Old name of :attr:`adjacency` (warns)."""
+        warnings.warn(OldNameWarning("'connectivity' is the old name of 'adjacency'"), stacklevel=2)
+        return self.adjacency
 
     def key(self) -> str:
         """Digest of every option that changes the numbers."""

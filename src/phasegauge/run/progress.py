@@ -17,29 +17,43 @@ class Progress:
         Number of steps.
     label : str
     enabled : bool or None
-        None: show only when stderr is a terminal.
+        None: a live line on a terminal, and otherwise (a batch log) a full line
+        every ``interval`` seconds.
     stream : file, optional
         Where to write (default ``sys.stderr``).
+    interval : float
+        Seconds between the lines written to a stream that is not a terminal.
     """
 
-    def __init__(self, total: int, label: str = "steps", *, enabled=None, stream=None):
+    def __init__(self, total: int, label: str = "steps", *, enabled=None, stream=None, interval: float = 5.0):
         self.total = int(total)
         self.label = label
         self.stream = stream or sys.stderr
-        if enabled is None:
-            enabled = bool(getattr(self.stream, "isatty", lambda: False)())
-        self.enabled = enabled
+        terminal = bool(getattr(self.stream, "isatty", lambda: False)())
+        self.lines = enabled is None and not terminal  # a log file: whole lines, now and then
+        self.interval = float(interval) if self.lines else 0.2
+        self.enabled = True if enabled is None else enabled
         self.done = 0
         self.reused = 0
         self.start = time.monotonic()
-        self._last = 0.0
+        # a terminal shows the first update at once; a log gets its first line after an interval,
+        # so a short run (or one that fails at once) leaves no progress lines in it
+        self._last = self.start if self.lines else float("-inf")
+        self._logged = None  # steps done at the last line written to a log
 
     def update(self, n: int = 1, *, reused: bool = False) -> None:
         self.done += n
         if reused:
             self.reused += n
         now = time.monotonic()
-        if self.enabled and (now - self._last > 0.2 or self.done >= self.total):
+        if not self.enabled:
+            return
+        if self.lines:
+            if now - self._last >= self.interval:
+                self._last, self._logged = now, self.done
+                self.stream.write(self.text(now) + "\n")
+                self.stream.flush()
+        elif now - self._last > self.interval or self.done >= self.total:
             self._last = now
             self.stream.write("\r" + self.text(now) + "\033[K")
             self.stream.flush()
@@ -57,8 +71,11 @@ class Progress:
                 f"{eta} left")
 
     def close(self) -> None:
-        if self.enabled:
+        if self.enabled and not self.lines:
             self.stream.write("\r" + self.text() + "\033[K\n")
+            self.stream.flush()
+        elif self.enabled and self._logged is not None and self._logged != self.done:
+            self.stream.write(self.text() + "\n")  # a log that got lines gets the last count too
             self.stream.flush()
 
 

@@ -166,7 +166,7 @@ def analyse_step(step, options, *, contour_dir: str | None = None, reported_mesh
 
     step, flat = flatten_step(step, options)
     mesh = step.mesh
-    ind = make_indicator(mesh, step.fields, options.field, value_range=options.value_range,
+    ind = make_indicator(mesh, step.fields, options.field, value_range=options.range,
                          phase=options.phase, where=step.info.where, field_location=options.field_location)
     if ind.nonfinite == ind.cell.size or not np.isfinite(ind.cell).any():
         raise InputError(f"field '{options.field}' has no finite values (all NaN or Inf)", where=step.info.where,
@@ -201,12 +201,13 @@ def analyse_step(step, options, *, contour_dir: str | None = None, reported_mesh
         if contour_dir is not None:
             from ..io import write_contour
 
-            write_contour(contour, os.path.join(contour_dir, f"interface_{step.index:06d}.vtu"))
+            write_contour(contour, os.path.join(contour_dir, f"interface_{step.index:06d}.vtu"), time=step.time,
+                          step=step.index)
     if "droplets" in options.analyses:
         # droplets measured between the measured bulk values of the two phases (as the widths)
         low, high, tail = interface.bulk_plateaus(ind.point, options.level)
         found = droplets_mod.label_droplets(
-            mesh, ind.cell, level=options.level, connectivity=options.connectivity, periodic=tuple(options.periodic),
+            mesh, ind.cell, level=options.level, connectivity=options.adjacency, periodic=tuple(options.periodic),
             velocity=u_cell, interface_cells=contour.cells, interface_sizes=contour.element_sizes,
             bulk=(low, high), band_floor=max(1e-3, tail) if (low, high) != (0.0, 1.0) else 1e-3)
         table = found.table
