@@ -52,8 +52,12 @@ A measure recipe::
     temperature = 298.15       # K (or temperature_field = "T")
     solute = "s"               # optional solute field; solute_receiving = "rich" or "lean"
     bulk_widths = 2.0          # bulk cells: farther than this many widths from the contour
-    tolerance = 0.01           # gap to the binodal counted as equilibrium
+    equilibrium_tolerance = 0.01  # gap to the binodal counted as equilibrium
     capillary_length = 0.01    # optional: sigma v_m / (R T), for the Gibbs-Thomson shift
+
+    [phase_field]              # optional: Cahn-Hilliard checks
+    free_energy = "well.toml"  # double well with kappa, relative to the recipe (regular grids)
+    coarsening = true          # pattern length per step and the fitted L ~ t^n
 
     [validation]               # optional; CSV files relative to the recipe
     probes = "probes.csv"      # name,x,y[,z]
@@ -85,7 +89,8 @@ from .errors import InputFileNotFound, OldNameWarning, OptionError
 __all__ = ["load_recipe", "run_recipe", "RECIPE_SCHEMA", "COMPARE_SCHEMA", "CAMPAIGN_SCHEMA", "OLD_KEYS"]
 
 #: (table, old key) -> the key's one name (read with an OldNameWarning)
-OLD_KEYS = MappingProxyType({("mixing", "target"): "mixing_target"})
+OLD_KEYS = MappingProxyType({("mixing", "target"): "mixing_target",
+                             ("miscibility", "tolerance"): "equilibrium_tolerance"})
 
 _INPUT = {"path": str, "field": str, "range": list, "phase": str, "velocity": str, "label": str,
           "field_location": str, "sort_by_time": bool}
@@ -102,8 +107,9 @@ RECIPE_SCHEMA = {
     "output": {"folder": str, "overwrite": bool, "plot_format": str, "keep_cache": bool},
     "validation": {"probes": str, "lines": str, "measured": str},
     "miscibility": {"model": str, "temperature": (int, float), "temperature_field": str, "solute": str,
-                    "solute_receiving": str, "bulk_widths": (int, float), "tolerance": (int, float),
+                    "solute_receiving": str, "bulk_widths": (int, float), "equilibrium_tolerance": (int, float),
                     "capillary_length": (int, float)},
+    "phase_field": {"free_energy": str, "coarsening": bool},
 }
 
 #: a campaign recipe: a measure recipe whose [input] has no path, a [campaign] table and [[runs]]
@@ -217,6 +223,8 @@ def load_recipe(path) -> dict:
         data["compare"]["reference_table"] = _resolve(base, data["compare"]["reference_table"])
     for entry in data.get("runs", []) if kind == "campaign" else []:
         entry["path"] = _resolve(base, entry["path"])
+    if "free_energy" in data.get("phase_field", {}):
+        data["phase_field"]["free_energy"] = _resolve(base, data["phase_field"]["free_energy"])
     if "model" in data.get("miscibility", {}):
         data["miscibility"]["model"] = _resolve(base, data["miscibility"]["model"])
     if "miscibility" in data:
@@ -377,7 +385,8 @@ def measure_arguments(recipe: dict) -> dict:
         strict=run.get("strict", False), field_location=inp.get("field_location", "auto"),
         sort_by_time=inp.get("sort_by_time", False), keep_3d=inp.get("keep_3d", False), steps=inp.get("steps"),
         time_from=inp.get("time_from"), time_to=inp.get("time_to"), every=inp.get("every", 1),
-        **_point_options(recipe.get("validation", {})), **_mixture_options(recipe.get("miscibility", {})))
+        **recipe.get("phase_field", {}), **_point_options(recipe.get("validation", {})),
+        **_mixture_options(recipe.get("miscibility", {})))
     return dict(path=inp.get("path"), options=options, out=out["folder"], overwrite=out.get("overwrite", False),
                 workers=run.get("workers", 1), scheduler=run.get("scheduler"),
                 contours=iface.get("contours", True), snapshots=run.get("snapshots", 4),
@@ -387,8 +396,7 @@ def measure_arguments(recipe: dict) -> dict:
 
 def _mixture_options(miscibility: dict) -> dict:
     """MeasureOptions entries of a recipe's [miscibility] table."""
-    names = {"tolerance": "equilibrium_tolerance"}
-    return {names.get(key, key): value for key, value in miscibility.items()}
+    return dict(miscibility)
 
 
 def _check_miscibility(miscibility: dict, path: str) -> None:

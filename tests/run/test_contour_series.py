@@ -27,7 +27,9 @@ def test_contours_read_back_as_a_series(tmp_path):
     assert grid.field_data["TimeValue"][0] == pytest.approx(1.5) and grid.field_data["step"][0] == 2
     assert (folder / "interface.steps").read_text().splitlines() == [
         "time,path", "1.25,interface_000001.vtu", "1.5,interface_000002.vtu", "1.75,interface_000003.vtu"]
-    with Series(str(folder / "interface.steps")) as listing, Series(str(folder)) as files:
-        assert list(listing.times) == list(files.times) == [1.25, 1.5, 1.75]
-        assert files.time_origins == ["file"]
+    # the folder reads through its listing; the files alone carry the same times (TimeValue)
+    with Series(str(folder / "interface.steps")) as listing, Series(str(folder)) as in_folder, \
+            Series(str(folder / "interface_*.vtu")) as files:
+        assert list(listing.times) == list(in_folder.times) == list(files.times) == [1.25, 1.5, 1.75]
+        assert in_folder.time_origins == ["listing"] and files.time_origins == ["file"]
     assert "contours/interface.steps" in __import__("json").load(open(out / "manifest.json"))["outputs"]

@@ -56,6 +56,23 @@ VALUES = {
     "keep_cache": (["--keep-cache"], "output", "true", True),
 }
 
+#: the phase-field and mixture names: measured on their own series (a regular grid, model files);
+#: the model paths are filled in per test (MODELS), ``temperature_field`` is tried alone (it excludes
+#: ``temperature``)
+EXTRA = {
+    "free_energy": (["--free-energy", "{well}"], "phase_field", '"{well}"', "{well}"),
+    "coarsening": (["--coarsening"], "phase_field", "true", True),
+    "model": (["--model", "{mixture}"], "miscibility", '"{mixture}"', "{mixture}"),
+    "temperature": (["--temperature", "300"], "miscibility", "300.0", 300.0),
+    "temperature_field": (["--temperature-field", "T"], "miscibility", '"T"', "T"),
+    "solute": (["--solute", "s"], "miscibility", '"s"', "s"),
+    "solute_receiving": (["--solute-receiving", "lean"], "miscibility", '"lean"', "lean"),
+    "bulk_widths": (["--bulk-widths", "1.5"], "miscibility", "1.5", 1.5),
+    "equilibrium_tolerance": (["--equilibrium-tolerance", "0.02"], "miscibility", "0.02", 0.02),
+    "capillary_length": (["--capillary-length", "0.001"], "miscibility", "0.001", 0.001),
+}
+VALUES = {**VALUES, **EXTRA}
+
 
 def _readme_table():
     """(name, flag text, recipe text, manifest key, old names) of each row of the README's table."""
@@ -127,7 +144,7 @@ def test_readme_table_names_every_option():
 
 def test_every_name_gives_one_manifest_entry(tmp_path):
     listing = _series(str(tmp_path))
-    names = [r[0].strip("`") for r in _readme_table()]
+    names = [r[0].strip("`") for r in _readme_table() if r[0].strip("`") not in EXTRA]
     args = [a for name in names for a in VALUES[name][0]]
     _cli(["measure", listing, "-o", str(tmp_path / "cli"), *args])
     recipe = _recipe(str(tmp_path / "r.toml"), listing, str(tmp_path / "recipe"),
@@ -146,6 +163,44 @@ def test_every_name_gives_one_manifest_entry(tmp_path):
                                                           str(tmp_path / "cli"), *args])
     assert invocations[1]["recipe"] == open(recipe).read() and invocations[1]["recipe_path"] == recipe
     assert invocations[2] == {"python": "phasegauge.measure"}
+
+
+def _fill(value, models):
+    if isinstance(value, list):
+        return [_fill(v, models) for v in value]
+    return value.format(**models) if isinstance(value, str) else value
+
+
+@pytest.mark.parametrize("names", [[n for n in EXTRA if n != "temperature_field"], ["model", "temperature_field"]])
+def test_phase_field_and_mixture_names_give_one_manifest_entry(tmp_path, names):
+    """As above, for the options of the phase-field checks and of a partially miscible mixture."""
+    mesh = grid_mesh((40, 4), bounds=[(0.0, 1.0), (0.0, 0.1)], kind="quad")
+    x = mesh.cell_centroids[:, 0]
+    lines = []
+    for k in range(3):
+        c = 0.1 + 0.8 * 0.5 * (1 + np.tanh((0.25 - np.abs(x - 0.5)) / (0.03 + 0.01 * k)))
+        data = {"alpha": c, "s": 0.05 * c, "T": np.full(mesh.n_cells, 300.0)}
+        to_meshio(mesh, cell_data=data).write(tmp_path / f"m_{k}.vtu")
+        lines.append(f"{0.1 * k},m_{k}.vtu")
+    listing = str(tmp_path / "run.steps")
+    (tmp_path / "run.steps").write_text("\n".join(lines) + "\n")
+    models = {"well": str(tmp_path / "well.toml"), "mixture": str(tmp_path / "regular.toml")}
+    (tmp_path / "well.toml").write_text('[model]\nkind = "double-well"\nlean = 0.0\nrich = 1.0\nheight = 1.0\n'
+                                       'kappa = 1e-4\n')
+    (tmp_path / "regular.toml").write_text('[model]\nkind = "regular"\ncomponent = "A"\nchi = 3.0\n')
+    base = ["--field", "alpha", "--analyses", "interface,mixing"]
+    args = [_fill(a, models) for n in names for a in EXTRA[n][0]]
+    _cli(["measure", listing, "-o", str(tmp_path / "cli"), *base, *args])
+    entries = [("input", "field", '"alpha"'), ("run", "analyses", '["interface", "mixing"]')]
+    recipe = _recipe(str(tmp_path / "r.toml"), listing, str(tmp_path / "recipe"),
+                     entries + [(EXTRA[n][1], n, _fill(EXTRA[n][2], models)) for n in names])
+    run_recipe(recipe)
+    measure(listing, "alpha", out=tmp_path / "api", analyses=("interface", "mixing"),
+            **{n: _fill(EXTRA[n][3], models) for n in names})
+    cli, rec, api = (_options(tmp_path / k) for k in ("cli", "recipe", "api"))
+    for name in names:
+        assert cli[name] == rec[name] == api[name], name
+        assert api[name] is not None and api[name] != getattr(MeasureOptions(field="c"), name), name
 
 
 def test_old_names_give_the_same_manifest_entry(tmp_path):
@@ -223,3 +278,15 @@ def test_step_choice_that_leaves_nothing_names_the_series(tmp_path):
     listing = _series(str(tmp_path), steps=2)
     with pytest.raises(OptionError, match=r"leaves no step \(the series has 2 steps numbered from 0, times 0 to 0.1\)"):
         measure(listing, "alpha", steps="5:", out=tmp_path / "o")
+
+
+def test_old_recipe_key_of_the_equilibrium_tolerance(tmp_path):
+    (tmp_path / "regular.toml").write_text('[model]\nkind = "regular"\ncomponent = "A"\nchi = 3.0\n')
+    recipe = tmp_path / "r.toml"
+    recipe.write_text('[input]\npath = "run.steps"\nfield = "c"\n[output]\nfolder = "out"\n'
+                      '[miscibility]\nmodel = "regular.toml"\ntemperature = 300.0\ntolerance = 0.02\n')
+    from phasegauge.recipes import load_recipe, measure_arguments
+
+    with pytest.warns(OldNameWarning, match=r"\[miscibility\] tolerance is the old name of equilibrium_tolerance"):
+        loaded = load_recipe(str(recipe))
+    assert measure_arguments(loaded)["options"].equilibrium_tolerance == 0.02
