@@ -87,3 +87,72 @@ def test_measure_with_free_energy_reports_tension_and_decay(tmp_path):
     assert np.all(np.diff(steps["free_energy"]) < 0)
     assert steps["interfacial_tension"].iat[-1] == pytest.approx(np.sqrt(2 * kappa * A) / 6, rel=0.01)
     assert "free_energy_increase" not in [f.kind for f in result.findings]
+
+
+def _regular_solution_profile(x, A, kappa, lean):
+    """Planar equilibrium profile of f = x ln x + (1-x) ln(1-x) + A x (1-x) (energies in RT per molar
+    volume): the first integral of Cahn & Hilliard (1958), dz = sqrt(kappa / (2 (f - f_b))) dx with
+    f_b the common tangent (flat for this symmetric f), integrated from x = 1/2 at z = 0 by scipy's
+    quad and inverted by interpolation."""
+    from scipy.integrate import quad
+
+    def excess(c):
+        f = c * np.log(c) + (1 - c) * np.log(1 - c) + A * c * (1 - c)
+        fb = lean * np.log(lean) + (1 - lean) * np.log(1 - lean) + A * lean * (1 - lean)
+        return max(f - fb, 1e-300)
+
+    levels = 0.5 + (0.5 - lean) * np.tanh(np.linspace(-4.0, 4.0, 801))  # dense near the plateaus
+    levels = np.clip(levels, lean + 1e-9, 1 - lean - 1e-9)
+    z = np.array([quad(lambda s: np.sqrt(kappa / (2 * excess(s))), 0.5, c, limit=200)[0] for c in levels])
+    return np.interp(x, z, levels), quad(lambda s: np.sqrt(2 * kappa * excess(s)), lean, 1 - lean,
+                                                       limit=200)[0]
+
+
+def test_tension_of_a_regular_solution_matches_the_quadrature():
+    """An activity model's free energy: the measured tension against sigma = int sqrt(2 kappa (f - f_b)) dx
+    between the binodal compositions (Cahn & Hilliard 1958, by scipy's quad); the binodal of A = 3 is
+    0.070720 (analytic, REFERENCES.md); mu = f'(x) - kappa lap x is uniform (0 by symmetry)."""
+    from phasegauge.model.mixture_models import RegularSolutionModel
+
+    A, kappa, lean = 3.0, 2e-5, 0.0707202
+    mesh = _strip(800, 4)
+    x = mesh.cell_centroids[:, 0]
+    profile, sigma = _regular_solution_profile(x - 0.5, A, kappa, lean)
+    model = RegularSolutionModel(A_a=A, kappa=kappa)
+    m = equilibrium_metrics(mesh, profile, model, kappa=kappa, interface_size=4 / 800, temperature=300.0)
+    assert m["interfacial_tension"] == pytest.approx(sigma, rel=1e-2)
+    assert abs(m["chemical_potential_mean"]) < 1e-2
+    assert m["chemical_potential_spread_max"] < 0.05  # f'' at the binodal is about 9 (A = 3)
+    # without a temperature an activity model gives NaN, not a number at a made-up temperature
+    assert np.isnan(equilibrium_metrics(mesh, profile, model, kappa=kappa)["free_energy"])
+
+
+def test_measure_with_an_activity_model_free_energy(tmp_path):
+    """--free-energy with a regular-solution model file and --temperature: the tension per step."""
+    from click.testing import CliRunner
+
+    from phasegauge.cli import main
+    from phasegauge.meshgen import to_meshio
+
+    A, kappa, lean = 3.0, 2e-5, 0.0707202
+    model_file = tmp_path / "regular.toml"
+    model_file.write_text(f'[model]\nkind = "regular"\nchi = {A}\nkappa = {kappa}\n')
+    folder = tmp_path / "run"
+    folder.mkdir()
+    mesh = _strip(800, 4)
+    x = mesh.cell_centroids[:, 0]
+    profile, sigma = _regular_solution_profile(x - 0.5, A, kappa, lean)
+    for k in range(2):
+        to_meshio(mesh, cell_data={"x": profile}, field_data={"TimeValue": np.array([float(k)])}).write(
+            str(folder / f"s_{k}.vtu"))
+    out = tmp_path / "out"
+    result = CliRunner().invoke(main, ["measure", str(folder), "-f", "x", "-o", str(out), "--analyses", "interface",
+                                       "--free-energy", str(model_file), "--temperature", "300"])
+    assert result.exit_code == 0, result.output
+    import pandas as pd
+
+    steps = pd.read_csv(out / "steps.csv")
+    assert steps["interfacial_tension"].iat[-1] == pytest.approx(sigma, rel=1e-2)
+    missing = CliRunner().invoke(main, ["measure", str(folder), "-f", "x", "-o", str(tmp_path / "o2"),
+                                        "--free-energy", str(model_file)])
+    assert missing.exit_code == 2 and "needs one temperature" in missing.output

@@ -35,7 +35,7 @@ def _nan() -> dict:
 
 
 def equilibrium_metrics(mesh: Mesh, field_cell, model, *, kappa: float, periodic=(),
-                        interface_size: float | None = None) -> dict:
+                        interface_size: float | None = None, temperature: float | None = None) -> dict:
     """Chemical potential spread, free energy and interfacial tension of one step.
 
     Parameters
@@ -44,14 +44,19 @@ def equilibrium_metrics(mesh: Mesh, field_cell, model, *, kappa: float, periodic
         A uniform regular grid (other meshes give NaN).
     field_cell : ndarray of shape (n_cells,)
         The order parameter in the model's own variable (the field as written, not c).
-    model : object with ``lean``, ``rich``, ``height``
-        The double well ``f = height (phi - lean)^2 (phi - rich)^2``.
+    model : DoubleWellModel, NrtlModel or RegularSolutionModel
+        The bulk free energy ``f`` (``model.mixing_gibbs``) and its slope
+        (``model.mixing_gibbs_slope``): the double well ``height (phi - lean)^2 (phi - rich)^2``,
+        or an activity model's ``Delta g_mix / RT`` in the mole fraction (energies in RT per
+        molar volume).
     kappa : float
         Gradient-energy coefficient (> 0), in field^-2 energy length^2 per volume units.
     periodic : sequence of {'x', 'y', 'z'}
         Periodic axes (the stencil wraps); other boundaries carry no flux.
     interface_size : float, optional
         Length (2D) or area (3D) of the interface, for the tension.
+    temperature : float, optional
+        Temperature in K of an activity model (the double well does not use it).
 
     Returns
     -------
@@ -65,7 +70,9 @@ def equilibrium_metrics(mesh: Mesh, field_cell, model, *, kappa: float, periodic
     Notes
     -----
     Checks: for ``f = A c^2 (1 - c)^2``, sigma = sqrt(2 kappa A) / 6; for
-    ``(beta/4)(phi^2 - 1)^2``, sigma = (2 sqrt 2 / 3) sqrt(kappa beta).
+    ``(beta/4)(phi^2 - 1)^2``, sigma = (2 sqrt 2 / 3) sqrt(kappa beta); for any f,
+    sigma = int sqrt(2 kappa (f - tangent)) dx between the coexisting compositions (Cahn &
+    Hilliard 1958).
     """
     try:
         kappa = float(kappa)
@@ -97,9 +104,12 @@ def equilibrium_metrics(mesh: Mesh, field_cell, model, *, kappa: float, periodic
         if mode == "wrap":
             faces = np.take(faces, np.arange(1, phi.shape[k] + 1), axis=k)
         grad_energy += float(np.sum(faces ** 2)) / step ** 2 * dV
-    lean, rich, height = float(model.lean), float(model.rich), float(model.height)
-    bulk = height * (phi - lean) ** 2 * (phi - rich) ** 2
-    mu = 2.0 * height * (phi - lean) * (phi - rich) * (2.0 * phi - lean - rich) - kappa * lap
+    if getattr(model, "kind", "") != "double-well":  # a mole fraction: the logarithms need 0 < x < 1
+        if temperature is None or not np.isfinite(temperature):
+            return _nan()
+        phi = np.clip(phi, 1e-12, 1.0 - 1e-12)
+    bulk = model.mixing_gibbs(phi, temperature)
+    mu = model.mixing_gibbs_slope(phi, temperature) - kappa * lap
     mean = float(mu.mean())
     dev = mu - mean
     tension = (kappa * grad_energy / interface_size

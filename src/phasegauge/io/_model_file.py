@@ -10,8 +10,8 @@
     alpha = 0.3
 
 A regular solution takes ``A_a`` and ``A_b`` (``A = a + b / T``) or a constant ``chi``; the
-double well takes ``lean``, ``rich`` and optionally ``height`` and ``kappa`` (the gradient-energy
-coefficient, needed by ``measure --free-energy``). Every value is checked on
+double well takes ``lean``, ``rich`` and optionally ``height``. Every kind takes an optional
+``kappa``, the gradient-energy coefficient that ``measure --free-energy`` needs. Every value is checked on
 reading; an error names the key and the fix in one line.
 """
 
@@ -29,8 +29,8 @@ __all__ = ["read_mixture_model", "mixture_model_from_table", "MODEL_KEYS"]
 
 #: the keys each kind of model accepts in [model] (besides kind, component and description)
 MODEL_KEYS = MappingProxyType({
-    "nrtl": ("tau_a", "tau_b", "tau_e", "tau_f", "alpha"),
-    "regular": ("A_a", "A_b", "chi"),
+    "nrtl": ("tau_a", "tau_b", "tau_e", "tau_f", "alpha", "kappa"),
+    "regular": ("A_a", "A_b", "chi", "kappa"),
     "double-well": ("lean", "rich", "height", "kappa"),
 })
 _COMMON = ("kind", "component", "description")
@@ -97,7 +97,7 @@ def mixture_model_from_table(table: dict, *, where: str = ""):
                 if isinstance(value, bool | str | list):
                     name = "chi" if "chi" in table and key == "A_a" else key
                     raise OptionError(f"{name} must be a number, found {value!r}", fix=f"write {name} = 2.5")
-            return RegularSolutionModel(component=component, **values)
+            return RegularSolutionModel(component=component, kappa=table.get("kappa"), **values)
         for key in ("lean", "rich"):
             if key not in table:
                 raise OptionError(f"a double well needs '{key}'", fix="write lean = 0.1 and rich = 0.9")

@@ -46,6 +46,19 @@ __all__ = ["NrtlModel", "RegularSolutionModel", "DoubleWellModel", "nrtl_ln_gamm
 MODEL_KINDS = ("nrtl", "regular", "double-well")
 
 
+def _kappa(value):
+    """The gradient-energy coefficient of a model file, checked (None when not given)."""
+    if value is None:
+        return None
+    try:
+        kappa = float(value)
+    except (TypeError, ValueError):
+        raise OptionError(f"kappa must be a number, found {value!r}", fix="write kappa = 1e-4") from None
+    if not (np.isfinite(kappa) and kappa > 0):
+        raise OptionError(f"kappa must be > 0, found {value!r}", fix="write kappa = 1e-4")
+    return kappa
+
+
 def _pair(value, name):
     try:
         pair = tuple(float(v) for v in value)
@@ -98,6 +111,11 @@ class _BinaryActivityModel:
         ln_g1, ln_g2 = self.ln_gamma(x, temperature)
         return np.log(x) + ln_g1, np.log(1 - x) + ln_g2
 
+    def mixing_gibbs_slope(self, x, temperature):
+        """d(Delta g_mix / RT)/dx = ln(x gamma_1) - ln((1 - x) gamma_2) (Gibbs-Duhem)."""
+        mu1, mu2 = self.chemical_potentials(x, temperature)
+        return mu1 - mu2
+
 
 @dataclass(frozen=True)
 class NrtlModel(_BinaryActivityModel):
@@ -122,10 +140,12 @@ class NrtlModel(_BinaryActivityModel):
     tau_e: tuple = (0.0, 0.0)
     tau_f: tuple = (0.0, 0.0)
     component: str = ""
+    kappa: float | None = None
 
     def __post_init__(self):
         for name in ("tau_a", "tau_b", "tau_e", "tau_f"):
             object.__setattr__(self, name, _pair(getattr(self, name), name))
+        object.__setattr__(self, "kappa", _kappa(self.kappa))
         alpha = float(self.alpha)
         if not np.isfinite(alpha) or alpha < 0:
             raise OptionError(f"alpha must be a number >= 0, found {self.alpha!r}",
@@ -178,17 +198,21 @@ class RegularSolutionModel(_BinaryActivityModel):
     A_b : float
         Part of A proportional to 1 / T, in K.
     component : str
+    kappa : float, optional
+        Gradient-energy coefficient, as for :class:`NrtlModel`.
     """
 
     A_a: float = 0.0
     A_b: float = 0.0
     component: str = ""
+    kappa: float | None = None
 
     kind = "regular"
 
     def __post_init__(self):
         for name in ("A_a", "A_b"):
             object.__setattr__(self, name, _finite_number(name, getattr(self, name), example="2.5"))
+        object.__setattr__(self, "kappa", _kappa(self.kappa))
 
     def interaction(self, temperature):
         """A = a + b / T (dimensionless)."""
@@ -239,18 +263,15 @@ class DoubleWellModel:
                               fix="give the lower bulk value as lean")
         if self.height <= 0:
             raise OptionError(f"height must be > 0, found {self.height:g}", fix="write height = 1")
-        if self.kappa is not None:
-            try:
-                kappa = float(self.kappa)
-            except (TypeError, ValueError):
-                raise OptionError(f"kappa must be a number, found {self.kappa!r}", fix="write kappa = 1e-4") from None
-            if not (np.isfinite(kappa) and kappa > 0):
-                raise OptionError(f"kappa must be > 0, found {self.kappa!r}", fix="write kappa = 1e-4")
-            object.__setattr__(self, "kappa", kappa)
+        object.__setattr__(self, "kappa", _kappa(self.kappa))
 
     def mixing_gibbs(self, x, temperature=None):
         """h (x - lean)^2 (x - rich)^2 (the temperature is not used)."""
         return self.height * (x - self.lean) ** 2 * (x - self.rich) ** 2
+
+    def mixing_gibbs_slope(self, x, temperature=None):
+        """2 h (x - lean)(x - rich)(2x - lean - rich)."""
+        return 2.0 * self.height * (x - self.lean) * (x - self.rich) * (2.0 * x - self.lean - self.rich)
 
     def spinodal(self):
         """The two roots of the second derivative."""

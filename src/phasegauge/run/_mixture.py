@@ -49,7 +49,16 @@ def normalize_mixture(options) -> dict:
     model = options.model
     given = [name for name in ("temperature", "temperature_field", "solute", "capillary_length")
              if getattr(options, name) is not None]
+    activity_energy = getattr(options.free_energy, "kind", "double-well") != "double-well"
     if model is None:
+        if activity_energy:  # the free energy of an activity model needs the run's temperature
+            if (options.temperature is None) == (options.temperature_field is None):
+                raise OptionError("the free energy of an activity model needs one temperature: a value or a "
+                                  "field, not " + ("both" if options.temperature is not None else "neither"),
+                                  fix="give --temperature 298.15 or --temperature-field NAME")
+            given = [name for name in given if name not in ("temperature", "temperature_field")]
+            if options.temperature is not None:
+                out["temperature"] = _positive(options.temperature, "temperature", "give it in K, for example 298.15")
         if given:
             raise OptionError(f"{given[0].replace('_', ' ')} is given without a mixture model",
                               fix="give the model file with --model MODEL.toml")
@@ -102,7 +111,8 @@ def _cell_field(step, mesh, name, what):
     return values if location == "cell" else mesh.point_to_cell(values)
 
 
-def _step_temperature(step, mesh, options) -> float:
+def step_temperature(step, mesh, options) -> float:
+    """The step's temperature in K: the given value, or the volume-weighted median of the field."""
     if options.temperature is not None:
         return float(options.temperature)
     values = _cell_field(step, mesh, options.temperature_field, "temperature field")
@@ -124,7 +134,7 @@ def mixture_step(step, mesh, ind, contour, metrics: dict, options, droplets=None
     x = ind.cell if options.phase == "upper" else 1.0 - ind.cell
     weights = mesh.cell_measures
     finite = np.isfinite(x)
-    t = _step_temperature(step, mesh, options)
+    t = step_temperature(step, mesh, options)
     out = {"temperature": t,
            "mean_composition": float(weights[finite] @ x[finite] / weights[finite].sum())}
     eq = thermo.equilibrium_at(model, t) if np.isfinite(t) else None

@@ -472,7 +472,7 @@ def _expected_shift(steps, droplets, options):
     mu / f'' with f'' = 2 h (rich - lean)^2 at the wells (Cahn & Hilliard 1958; linearised).
     """
     model = getattr(options, "free_energy", None)
-    if model is None or droplets is None or not len(droplets) or "equivalent_diameter" not in droplets:
+    if getattr(model, "kind", None) != "double-well" or droplets is None or not len(droplets) or "equivalent_diameter" not in droplets:
         return None
     last = droplets[droplets["step"] == droplets["step"].max()]
     radius = 0.5 * float(np.nanmax(last["equivalent_diameter"]))

@@ -17,10 +17,14 @@ from __future__ import annotations
 import time
 import warnings
 from dataclasses import dataclass
+from typing import TYPE_CHECKING
 
 import numpy as np
 
 from ..errors import OptionError, PhasegaugeWarning
+
+if TYPE_CHECKING:  # pandas is imported where the tables are built
+    import pandas as pd
 
 __all__ = ["RunSpec", "CompareResult", "compare_runs", "compare_arguments"]
 

@@ -151,10 +151,11 @@ class MeasureOptions:
     keep_3d : bool
         Measure a mesh one cell thick (quasi-2D) as 3D; by default it is
         measured per unit depth as 2D on its lower face plane.
-    free_energy : str or DoubleWellModel, optional
-        A model file (or model) of the double well and its gradient coefficient kappa, in the
-        field's own variable: each step then gets the chemical potential's spread, the free
-        energy and the interfacial tension (regular grids).
+    free_energy : str or model, optional
+        A model file (or model) with its gradient coefficient kappa: a double well in the
+        field's own variable, or an activity model (NRTL, regular solution) in the mole fraction
+        at ``temperature`` (or ``temperature_field``). Each step then gets the chemical
+        potential's spread, the free energy and the interfacial tension (regular grids).
     coarsening : bool
         The characteristic length of the pattern per step (``coarsening_length``, first moment
         of the structure factor) and the fitted exponent of L ~ t^n.
@@ -331,16 +332,21 @@ class MeasureOptions:
 
 
 def _free_energy_model(value):
-    """The double-well model of ``--free-energy`` (a model file path or a model), with its kappa."""
+    """The free-energy model of ``--free-energy`` (a model file path or a model), with its kappa.
+
+    A double well in the field's own variable, or an activity model (NRTL, regular solution) in
+    the mole fraction (the field mapped through the range), at the run's temperature.
+    """
     import os
 
     if isinstance(value, (str, os.PathLike)):
         from ..io import read_mixture_model
 
         value = read_mixture_model(value)
-    if getattr(value, "kind", None) != "double-well" or getattr(value, "kappa", None) is None:
-        raise OptionError("the free energy needs a double well with its gradient coefficient kappa",
-                          fix='write [model] kind = "double-well", lean, rich, height and kappa in the model file')
+    if not hasattr(value, "mixing_gibbs_slope") or getattr(value, "kappa", None) is None:
+        raise OptionError("the free energy needs a model with its gradient coefficient kappa",
+                          fix='add kappa = 1e-4 to the [model] table of the model file (a "double-well", '
+                              '"regular" or "nrtl" model)')
     return value
 
 

@@ -239,7 +239,7 @@ def analyse_step(step, options, *, contour_dir: str | None = None, reported_mesh
     if getattr(options, "coarsening", False):
         m["coarsening_length"] = mixing.coarsening_length(mesh, ind.cell)
     if getattr(options, "free_energy", None) is not None:
-        m.update(_equilibrium(mesh, ind, options, m.get("interface_size")))
+        m.update(_equilibrium(step, mesh, ind, options, m.get("interface_size")))
     if options.model is not None:  # a partially miscible mixture: bulk compositions against the model
         from ._mixture import mixture_step
 
@@ -250,15 +250,22 @@ def analyse_step(step, options, *, contour_dir: str | None = None, reported_mesh
     return result
 
 
-def _equilibrium(mesh, ind, options, interface_size) -> dict:
+def _equilibrium(step, mesh, ind, options, interface_size) -> dict:
     """Chemical potential spread, free energy and tension of the field in the model's own variable."""
     from ..analysis.thermo import equilibrium_metrics
 
     lo, hi = ind.value_range
     c = ind.cell if ind.phase == "upper" else 1.0 - ind.cell
     field = lo + (hi - lo) * c  # the field as written (the indicator maps lo -> 0, hi -> 1)
+    temperature = None
+    if options.free_energy.kind != "double-well":  # an activity model: the mole fraction, at the step's T
+        from ._mixture import step_temperature
+
+        field = c  # the mole fraction of the model's component, mapped through the range
+        temperature = step_temperature(step, mesh, options)
     return equilibrium_metrics(mesh, field, options.free_energy, kappa=options.free_energy.kappa,
-                               periodic=tuple(options.periodic), interface_size=interface_size)
+                               periodic=tuple(options.periodic), interface_size=interface_size,
+                               temperature=temperature)
 
 
 def _warn_periodic_look(mesh, c_point, options, where: str) -> None:
