@@ -21,6 +21,7 @@ from __future__ import annotations
 import numpy as np
 
 from ..errors import OptionError
+from ..model._numbers import finite_number
 from ..model.contour import Contour
 from ..model.corners import CornerExtremes, cell_gradient, corner_extremes
 from ..model.mesh import Mesh
@@ -36,13 +37,7 @@ def _empty(mesh: Mesh) -> Contour:
 
 
 def _check_level(level) -> float:
-    try:
-        value = float(level)
-    except (TypeError, ValueError):
-        raise OptionError(f"level must be a number, found {level!r}", fix="for example level=0.5") from None
-    if not np.isfinite(value):
-        raise OptionError(f"level must be finite, found {value}", fix="for example level=0.5")
-    return value
+    return finite_number("level", level, fix="for example level=0.5")
 
 
 def _check_point_values(mesh: Mesh, values) -> np.ndarray:

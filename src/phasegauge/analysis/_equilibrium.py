@@ -23,6 +23,7 @@ import numpy as np
 from ..errors import OptionError
 from ..model.axes import AXIS_INDEX
 from ..model.mesh import Mesh
+from ..model.mixture_models import check_kappa
 
 __all__ = ["equilibrium_metrics", "EQUILIBRIUM_KEYS"]
 
@@ -74,12 +75,9 @@ def equilibrium_metrics(mesh: Mesh, field_cell, model, *, kappa: float, periodic
     sigma = int sqrt(2 kappa (f - tangent)) dx between the coexisting compositions (Cahn &
     Hilliard 1958).
     """
-    try:
-        kappa = float(kappa)
-    except (TypeError, ValueError):
-        raise OptionError(f"kappa must be a number, found {kappa!r}", fix="write kappa = 1e-4") from None
-    if not (np.isfinite(kappa) and kappa > 0):
-        raise OptionError(f"kappa must be > 0, found {kappa!r}", fix="write kappa = 1e-4")
+    kappa = check_kappa(kappa)
+    if kappa is None:
+        raise OptionError("kappa is needed", fix="write kappa = 1e-4 in the model file")
     grid = mesh.regular_grid
     values = np.asarray(field_cell, dtype=np.float64)
     if grid is None or not grid.uniform or values.shape != (mesh.n_cells,):

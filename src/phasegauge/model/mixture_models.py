@@ -28,17 +28,12 @@ from dataclasses import dataclass
 import numpy as np
 
 from ..errors import OptionError
+from ._numbers import finite_number
 
 
 def _finite_number(name: str, value, *, example: str) -> float:
     """``value`` as a finite float, or an :class:`OptionError` naming the model key."""
-    try:
-        number = float(value)
-    except (TypeError, ValueError):
-        raise OptionError(f"{name} must be a number, found {value!r}", fix=f"write {name} = {example}") from None
-    if not np.isfinite(number):
-        raise OptionError(f"{name} must be finite, found {value!r}", fix=f"write {name} = {example}")
-    return number
+    return finite_number(name, value, fix=f"write {name} = {example}")
 
 __all__ = ["NrtlModel", "RegularSolutionModel", "DoubleWellModel", "nrtl_ln_gamma", "MODEL_KINDS"]
 
@@ -46,15 +41,12 @@ __all__ = ["NrtlModel", "RegularSolutionModel", "DoubleWellModel", "nrtl_ln_gamm
 MODEL_KINDS = ("nrtl", "regular", "double-well")
 
 
-def _kappa(value):
-    """The gradient-energy coefficient of a model file, checked (None when not given)."""
+def check_kappa(value):
+    """The gradient-energy coefficient kappa, checked (> 0; None when not given)."""
     if value is None:
         return None
-    try:
-        kappa = float(value)
-    except (TypeError, ValueError):
-        raise OptionError(f"kappa must be a number, found {value!r}", fix="write kappa = 1e-4") from None
-    if not (np.isfinite(kappa) and kappa > 0):
+    kappa = finite_number("kappa", value, fix="write kappa = 1e-4")
+    if kappa <= 0:
         raise OptionError(f"kappa must be > 0, found {value!r}", fix="write kappa = 1e-4")
     return kappa
 
@@ -145,7 +137,7 @@ class NrtlModel(_BinaryActivityModel):
     def __post_init__(self):
         for name in ("tau_a", "tau_b", "tau_e", "tau_f"):
             object.__setattr__(self, name, _pair(getattr(self, name), name))
-        object.__setattr__(self, "kappa", _kappa(self.kappa))
+        object.__setattr__(self, "kappa", check_kappa(self.kappa))
         alpha = float(self.alpha)
         if not np.isfinite(alpha) or alpha < 0:
             raise OptionError(f"alpha must be a number >= 0, found {self.alpha!r}",
@@ -212,7 +204,7 @@ class RegularSolutionModel(_BinaryActivityModel):
     def __post_init__(self):
         for name in ("A_a", "A_b"):
             object.__setattr__(self, name, _finite_number(name, getattr(self, name), example="2.5"))
-        object.__setattr__(self, "kappa", _kappa(self.kappa))
+        object.__setattr__(self, "kappa", check_kappa(self.kappa))
 
     def interaction(self, temperature):
         """A = a + b / T (dimensionless)."""
@@ -263,7 +255,7 @@ class DoubleWellModel:
                               fix="give the lower bulk value as lean")
         if self.height <= 0:
             raise OptionError(f"height must be > 0, found {self.height:g}", fix="write height = 1")
-        object.__setattr__(self, "kappa", _kappa(self.kappa))
+        object.__setattr__(self, "kappa", check_kappa(self.kappa))
 
     def mixing_gibbs(self, x, temperature=None):
         """h (x - lean)^2 (x - rich)^2 (the temperature is not used)."""

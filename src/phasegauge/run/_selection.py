@@ -10,6 +10,7 @@ from __future__ import annotations
 import math
 
 from ..errors import OptionError
+from ..model._numbers import finite_number
 
 __all__ = ["normalize_steps", "normalize_selection", "chosen_steps"]
 
@@ -44,13 +45,7 @@ def normalize_selection(time_from, time_to, every) -> tuple:
         if value is None:
             bounds.append(None)
             continue
-        try:
-            value = float(value)
-        except (TypeError, ValueError):
-            raise OptionError(f"{name} must be a number, found {value!r}", fix="a time in the solver's units") from None
-        if not math.isfinite(value):
-            raise OptionError(f"{name} must be finite, found {value}", fix="leave it out for no bound")
-        bounds.append(value)
+        bounds.append(finite_number(name, value, fix="a time in the solver's units, or leave it out for no bound"))
     if bounds[0] is not None and bounds[1] is not None and bounds[0] > bounds[1]:
         raise OptionError(f"time_from {bounds[0]:g} lies after time_to {bounds[1]:g}", fix="swap the two times")
     if isinstance(every, bool) or not isinstance(every, int) or every < 1:
