@@ -245,13 +245,15 @@ def _side_by_side(jobs, settings, *, workers, progress) -> dict:
             for conn in wait(list(running)):
                 job, process = running.pop(conn)
                 try:
-                    kind, payload = conn.recv()
+                    kind, payload, trace = conn.recv()
                 except (EOFError, OSError):
-                    kind, payload = "lost", None
+                    kind, payload, trace = "lost", None, ""
                 conn.close()
                 process.join()
                 if kind == "error":
-                    raise payload
+                    from .executors import WorkerTraceback
+
+                    raise payload from WorkerTraceback(trace)
                 if kind == "lost":
                     from ..errors import AnalysisError
 
@@ -272,16 +274,19 @@ def _side_by_side(jobs, settings, *, workers, progress) -> dict:
 
 
 def _serve_run(job: _RunJob, settings: dict, workers: int, conn, parent: int) -> None:
-    """A forked campaign worker: measure one run and send ``('result', MeasureResult)`` or ``('error', exc)``."""
+    """A forked campaign worker: measure one run and send ``('result', MeasureResult, '')`` or
+    ``('error', exception, traceback text)``."""
+    import traceback
+
     from .executors import _die_with_parent, _portable
 
     _die_with_parent(parent)
     try:
         result = _measure_job(job, settings, workers=workers, progress=False, progress_label="steps")
         result.mesh = None  # the parent draws nothing: the run's report is written
-        message = ("result", result)
+        message = ("result", result, "")
     except BaseException as exc:  # handed to the parent, which raises it
-        message = ("error", _portable(exc))
+        message = ("error", _portable(exc), traceback.format_exc())
     try:
         conn.send(message)
     finally:
