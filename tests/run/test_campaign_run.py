@@ -226,3 +226,36 @@ def test_channel_campaign_recipe_runs_on_the_sample(tmp_path):
         assert np.allclose(profiles["flow_rate"], q, rtol=2e-3)
         assert (tmp_path / "o" / run / "mixing_profile.png").exists()
     assert (tmp_path / "o" / "campaign.png").exists()
+
+
+def _drifting_series(folder, shift):
+    """Three steps of a diffuse disc moving along x on triangles (VTU files with their time as field data)."""
+    import meshio
+
+    mesh = grid_mesh((24, 24), bounds=[(0.0, 1.0), (0.0, 1.0)], kind="triangle")
+    os.makedirs(folder)
+    for k in range(3):
+        r = np.hypot(mesh.points[:, 0] - 0.3 - shift * k, mesh.points[:, 1] - 0.5)
+        phi = np.tanh((0.2 - r) / 0.04)
+        meshio.write(os.path.join(folder, f"disc_{k}.vtu"),
+                     to_meshio(mesh, point_data={"phi": phi}, field_data={"TimeValue": np.array([0.1 * k])}))
+    return folder
+
+
+def test_spare_workers_go_to_the_runs(tmp_path):
+    # 2 runs on 4 workers: side by side, each run's steps on 2 processes (a step worker forked inside a
+    # campaign worker); the tables are those of one process
+    runs = "".join(f'[[runs]]\npath = "{_drifting_series(str(tmp_path / f"s{k}"), shift)}"\nparameter = {shift}\n'
+                   for k, shift in enumerate((0.05, 0.1)))
+    recipe = tmp_path / "discs.toml"
+    recipe.write_text('[input]\nfield = "phi"\nrange = [-1, 1]\n[run]\nanalyses = ["interface", "conservation"]\n'
+                      '[interface]\ncontours = false\n[campaign]\nparameter = "speed"\n[output]\nfolder = "o"\n'
+                      + runs)
+    one = run_recipe(str(recipe), workers=1)
+    os.rename(tmp_path / "o", tmp_path / "one")
+    four = run_recipe(str(recipe), workers=4)
+    assert [len(r.steps) for r in four.runs] == [3, 3]
+    for a, b in zip(one.runs, four.runs):
+        pd.testing.assert_frame_equal(a.steps, b.steps, check_exact=True)
+    for name in ("campaign.csv", "run_000/steps.csv", "run_001/steps.csv"):
+        assert (tmp_path / "one" / name).read_bytes() == (tmp_path / "o" / name).read_bytes(), name
