@@ -16,21 +16,32 @@ from phasegauge.samples import (SAMPLE_NAMES, advect, cahn_hilliard, channel_con
 
 ROOT = os.path.join(os.path.dirname(__file__), os.pardir, "sample_fields")
 PATHS = {"filament_breakup": "filament_breakup.xdmf", "vortex_upwind": "vortex_upwind",
-         "vortex_sharp": "vortex_sharp", "channel_mixing": "channel_mixing.xdmf",
+         "vortex_sharp": "vortex_sharp", "channel_mixing": "channel_mixing",
          "droplets_3d": "droplets_3d.xdmf", "solvent_quench": "solvent_quench.xdmf"}
 #: name -> (steps, dimension, cell type, {field: location})
 EXPECTED = {
     "filament_breakup": (40, 2, "triangle", {"phi": "point"}),
     "vortex_upwind": (17, 2, "quad", {"c": "cell", "velocity": "cell"}),
     "vortex_sharp": (17, 2, "quad", {"c": "cell", "velocity": "cell"}),
-    "channel_mixing": (3, 2, "triangle", {"c": "point", "velocity": "point"}),
+    "channel_mixing": (1, 2, "triangle", {"c": "point", "velocity": "point"}),  # each flow rate's series
     "droplets_3d": (21, 3, "hexahedron", {"phi": "point", "velocity": "point"}),
     "solvent_quench": (11, 2, "quad", {"x": "cell", "s": "cell", "T": "cell"}),
 }
 
 
+#: the channel sample is a campaign: one series per inlet flow rate in its folder
+CHANNEL_SERIES = ("flow_rate_0.5.xdmf", "flow_rate_1.xdmf", "flow_rate_1.5.xdmf", "flow_rate_2.xdmf")
+
+
 def committed(name):
     return os.path.join(ROOT, PATHS[name])
+
+
+def series_paths(path, name):
+    """The series of sample ``name`` written at ``path`` (the channel folder holds one per flow rate)."""
+    if name == "channel_mixing":
+        return [os.path.join(path, f) for f in CHANNEL_SERIES]
+    return [path]
 
 
 def test_every_public_name_imports():
@@ -47,7 +58,11 @@ def test_committed_samples_are_small():
 @pytest.mark.parametrize("name", SAMPLE_NAMES)
 def test_committed_sample_is_readable(name):
     steps, dim, cell_type, fields = EXPECTED[name]
-    desc = describe_series(committed(name))
+    for path in series_paths(committed(name), name):
+        _check_description(describe_series(path), name, steps, dim, cell_type, fields)
+
+
+def _check_description(desc, name, steps, dim, cell_type, fields):
     assert desc["steps"] == steps
     assert desc["dimension"] == dim
     assert list(desc["cell_types"]) == [cell_type]
@@ -107,14 +122,16 @@ def test_regenerating_gives_the_committed_values(tmp_path):
     assert not [f for f in os.listdir(tmp_path) if f.startswith(".writing")]   # no temporaries left
     for name in SAMPLE_NAMES:
         assert os.path.basename(paths[name]) == PATHS[name]
-        new, old = list(_arrays(paths[name])), list(_arrays(committed(name)))
-        assert len(new) == len(old)
-        for (t1, m1, f1), (t2, m2, f2) in zip(new, old):
-            assert t1 == t2
-            np.testing.assert_allclose(m1.points, m2.points, rtol=0, atol=1e-12)
-            assert sorted(f1) == sorted(f2)
-            for key in f1:
-                _assert_same(f1[key], f2[key])
+        for new_path, old_path in zip(series_paths(paths[name], name), series_paths(committed(name), name),
+                                      strict=True):
+            new, old = list(_arrays(new_path)), list(_arrays(old_path))
+            assert len(new) == len(old)
+            for (t1, m1, f1), (t2, m2, f2) in zip(new, old):
+                assert t1 == t2
+                np.testing.assert_allclose(m1.points, m2.points, rtol=0, atol=1e-12)
+                assert sorted(f1) == sorted(f2)
+                for key in f1:
+                    _assert_same(f1[key], f2[key])
 
 
 def test_write_samples_checks_its_arguments(tmp_path):
@@ -129,7 +146,9 @@ def test_write_samples_checks_its_arguments(tmp_path):
 def test_write_samples_writes_only_the_named_series(tmp_path):
     paths = write_samples(tmp_path / "new", names=["channel_mixing"])
     assert list(paths) == ["channel_mixing"]
-    assert sorted(os.listdir(tmp_path / "new")) == ["channel_mixing.h5", "channel_mixing.xdmf"]
+    assert sorted(os.listdir(tmp_path / "new")) == ["channel_mixing"]
+    assert sorted(os.listdir(tmp_path / "new" / "channel_mixing")) == sorted(
+        name[:-5] + suffix for name in CHANNEL_SERIES for suffix in (".h5", ".xdmf"))
 
 
 # ---------------------------------------------------------------- Cahn-Hilliard

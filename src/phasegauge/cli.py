@@ -260,11 +260,12 @@ def _summary(result, out, quiet):
 @click.argument("recipe")
 @click.option("--overwrite", is_flag=True, default=None, help="Replace an existing output folder.")
 @click.option("--resume", is_flag=True, help="Finish an interrupted run.")
-@click.option("--workers", "-j", type=int, default=None, help="Local worker processes (overrides the recipe).")
+@click.option("--workers", "-j", type=int, default=None,
+              help="Local worker processes (overrides the recipe); a campaign measures its runs side by side on them.")
 @click.option("--strict", is_flag=True, default=None, help="Stop at a bad step instead of skipping it (overrides the recipe).")
 @click.option("--quiet", "-q", is_flag=True, help="No progress display.")
 def run(recipe, overwrite, resume, workers, strict, quiet):
-    """Run a recipe file (TOML): a whole measure or compare run kept beside the case."""
+    """Run a recipe file (TOML): a whole measure, compare or campaign run kept beside the case."""
     from .recipes import load_recipe, run_recipe
     from .report._files import output_transaction
 

@@ -445,7 +445,9 @@ def run_recipe(path, *, overwrite=None, resume: bool = False, workers=None, prog
                             parameter=campaign.get("parameter", "parameter"), unit=campaign.get("unit", ""),
                             overwrite=kwargs["overwrite"] if overwrite is None else overwrite, resume=resume,
                             workers=kwargs["workers"] if workers is None else workers, progress=progress,
-                            contours=kwargs["contours"], snapshots=kwargs["snapshots"])
+                            contours=kwargs["contours"], snapshots=kwargs["snapshots"],
+                            scheduler=kwargs["scheduler"], plot_format=kwargs["plot_format"],
+                            keep_cache=kwargs["keep_cache"])
     from .run.compare import compare_runs, compare_arguments
 
     kwargs = compare_arguments(recipe)

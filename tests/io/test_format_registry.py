@@ -53,22 +53,22 @@ def test_the_registered_reader_reads_a_file_meshio_wrote(tmp_path):
     assert io.read_meshio is io.read_mesh_file
 
 
-@pytest.mark.parametrize("name", ["channel_mixing.xdmf", "filament_breakup.xdmf"])
+@pytest.mark.parametrize("name", [os.path.join("channel_mixing", "flow_rate_1.xdmf"), "filament_breakup.xdmf"])
 def test_xdmf_data_files_are_the_hdf5_files_its_data_items_name(name):
     # reference: the DataItem texts parsed with the standard library's XML parser ("file.h5:/path")
     path = os.path.join(SAMPLES, name)
     items = [node.text.strip() for node in ET.parse(path).getroot().iter("DataItem")
              if node.get("Format") == "HDF" and node.text]
-    expected = sorted({os.path.join(SAMPLES, text.split(":")[0]) for text in items})
+    expected = sorted({os.path.join(os.path.dirname(path), text.split(":")[0]) for text in items})
     assert io.xdmf_data_files(path) == expected and all(os.path.isfile(f) for f in expected)
 
 
 def test_input_files_list_the_steps_and_data_with_their_sha256():
     # reference: hashlib over each file's bytes
-    series = io.Series(os.path.join(SAMPLES, "channel_mixing.xdmf"))
+    series = io.Series(os.path.join(SAMPLES, "channel_mixing", "flow_rate_1.xdmf"))
     files = io.input_files(series)
-    assert [f["path"] for f in files] == [os.path.abspath(os.path.join(SAMPLES, n))
-                                         for n in ("channel_mixing.xdmf", "channel_mixing.h5")]
+    assert [f["path"] for f in files] == [os.path.abspath(os.path.join(SAMPLES, "channel_mixing", n))
+                                         for n in ("flow_rate_1.xdmf", "flow_rate_1.h5")]
     for f in files:
         data = open(f["path"], "rb").read()
         assert f["bytes"] == len(data) and f["sha256"] == hashlib.sha256(data).hexdigest()

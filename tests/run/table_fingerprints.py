@@ -66,7 +66,7 @@ def fingerprints() -> dict:
         runs = {
             "triangles_filament": (os.path.join(SAMPLES, "filament_breakup.xdmf"),
                                    dict(field="phi", range=(-1, 1), periodic=("x", "y"))),
-            "triangles_channel": (os.path.join(SAMPLES, "channel_mixing.xdmf"),
+            "triangles_channel": (os.path.join(SAMPLES, "channel_mixing", "flow_rate_1.xdmf"),
                                   dict(field="c", velocity="velocity", section_axis="x", section_count=11)),
             "grid_vortex_sharp": (os.path.join(SAMPLES, "vortex_sharp"),
                                   dict(field="c", velocity="velocity")),

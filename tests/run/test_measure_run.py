@@ -199,7 +199,7 @@ def _local_recipe(name, tmp_path):
 @pytest.mark.parametrize("name", ["diffusion_audit", "breakup_tracking", "smeared_vs_sharp", "miscibility"])
 def test_every_shipped_recipe_runs_end_to_end(name, tmp_path):
     """Each shipped recipe runs from the command line on the shipped samples (the quickstart and the
-    channel recipe are run with their own checks in tests/test_quickstart.py and below)."""
+    channel campaign are run with their own checks in tests/test_quickstart.py and test_campaign_run.py)."""
     recipe = load_recipe(os.path.join(ROOT, "recipes", f"{name}.toml"))
     path = recipe["input"]["path"] if "input" in recipe else recipe["first"]["path"]
     assert os.path.exists(path)
@@ -223,27 +223,6 @@ def test_recipe_values_are_checked_before_any_work_with_the_recipe_names(tmp_pat
             load_recipe(recipe)
     recipe.write_text(base + "[interface]\ndiffusivity = 0.0\n")
     assert load_recipe(recipe)["interface"]["diffusivity"] == 0.0
-
-
-def test_channel_recipe_runs_on_the_sample(tmp_path):
-    import shutil
-
-    recipe = load_recipe(os.path.join(ROOT, "recipes", "channel_mixing.toml"))
-    text = open(os.path.join(ROOT, "recipes", "channel_mixing.toml")).read()
-    text = text.replace('"../sample_fields/', f'"{SAMPLES}/').replace('"../out/channel_mixing"', f'"{tmp_path}/o"')
-    (tmp_path / "r.toml").write_text(text)
-    res = CliRunner().invoke(main, ["run", str(tmp_path / "r.toml"), "--quiet"])
-    assert res.exit_code == 0, res.output
-    steps = pd.read_csv(tmp_path / "o" / "steps.csv")
-    # at the lowest Peclet number (the step time of this sample) the streams mix within the channel;
-    # faster flow leaves them less mixed at the outlet (advection-diffusion: mixing length ~ Pe)
-    assert np.isfinite(steps["mixing_length"][0])
-    profiles = pd.read_csv(tmp_path / "o" / "profiles.csv")
-    outlet = profiles.loc[profiles.groupby("step")["position"].idxmax(), "mixing_index_flow"].to_numpy()
-    assert np.all(np.diff(outlet) < 0)
-    assert (tmp_path / "o" / "profiles.csv").exists() and (tmp_path / "o" / "mixing_profile.png").exists()
-    shutil.rmtree(tmp_path / "o")
-    assert recipe["kind"] == "measure"
 
 
 def test_cli_measure_and_errors(tmp_path):

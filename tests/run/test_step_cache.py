@@ -85,12 +85,12 @@ def test_outlines_are_kept_once_per_mesh_without_centroids_in_the_step_files(tmp
 
 
 def test_rewritten_hdf5_data_changes_the_key_of_xdmf_steps(tmp_path):
-    for name in ("channel_mixing.xdmf", "channel_mixing.h5"):
+    for name in ("filament_breakup.xdmf", "filament_breakup.h5"):
         shutil.copy(os.path.join(SAMPLES, name), tmp_path / name)
-    info = Series(str(tmp_path / "channel_mixing.xdmf")).steps[1]
+    info = Series(str(tmp_path / "filament_breakup.xdmf")).steps[1]
     cache = StepCache(tmp_path / "cache", MeasureOptions(field="c").key())
     entry = cache.entry(info)
-    os.utime(tmp_path / "channel_mixing.h5", ns=(1, 1))
+    os.utime(tmp_path / "filament_breakup.h5", ns=(1, 1))
     assert StepCache(tmp_path / "cache", MeasureOptions(field="c").key()).entry(info) != entry
 
 

@@ -2,8 +2,9 @@
 
 Every run is measured with the recipe's options into its own folder under the
 output folder (``run_<label>``); ``campaign.csv`` holds one row per run with its
-summary figures, and the report draws each against the parameter. A resumed
-campaign reuses the runs that finished and resumes the one that was interrupted.
+summary figures, and the report draws each against the parameter. With several
+workers the runs are measured side by side in forked processes. A resumed
+campaign reuses the runs that finished and resumes the ones that were interrupted.
 """
 
 from __future__ import annotations
@@ -82,7 +83,8 @@ def _finished(folder: str):
 
 def run_campaign(runs: list, options, *, out, parameter: str = "parameter", unit: str = "",
                  overwrite: bool = False, resume: bool = False, workers: int = 1, progress=False,
-                 contours: bool = True, snapshots: int = 4) -> CampaignResult:
+                 contours: bool = True, snapshots: int = 4, scheduler: str | None = None,
+                 plot_format: str = "png", keep_cache: bool = False) -> CampaignResult:
     """Measure every run of a campaign and tabulate its summary figures against the parameter.
 
     Parameters
@@ -97,16 +99,38 @@ def run_campaign(runs: list, options, *, out, parameter: str = "parameter", unit
     parameter, unit : str
         Name and unit of the swept parameter (column names and plot labels).
     overwrite, resume : bool
-        As for ``measure``; a resumed campaign reuses finished runs.
+        As for ``measure``; a resumed campaign takes the finished runs from their
+        folders and resumes the unfinished ones (reusing their finished steps).
     workers : int
-        Local worker processes of each run.
+        Local worker processes for the whole campaign. Runs are measured side by
+        side, one process each and each run serial inside, up to ``workers`` at a
+        time; when fewer runs are left than workers, each run gets
+        ``workers // runs`` processes for its steps. ``workers=1`` measures the runs
+        one after another in this process. The tables do not depend on it.
+    progress : bool or None
+        As for ``measure``; the line names the run (or, side by side, the runs
+        being measured).
+    contours, snapshots, scheduler, plot_format, keep_cache
+        As for ``measure``, for every run. With a Dask ``scheduler`` the runs are
+        measured one after another, each on the cluster.
 
     Returns
     -------
     CampaignResult
+        ``runs`` holds each run's :class:`~phasegauge.run.measure.MeasureResult`
+        (without its ``mesh`` when the run was measured in a worker process), or
+        None for a run taken from its finished folder.
+
+    Raises
+    ------
+    OptionError
+        No runs, repeated labels, a parameter that is no finite number, bad workers.
+    PhasegaugeError
+        The first run that fails, as ``measure`` raises it; runs that finished stay
+        in their folders for ``resume``.
     """
     from ..report._files import output_transaction, prepare_output_folder
-    from .measure import measure
+    from .options import check_workers
 
     if not runs:
         raise OptionError("a campaign needs at least one run", fix="add [[runs]] tables with path and parameter")
@@ -118,24 +142,33 @@ def run_campaign(runs: list, options, *, out, parameter: str = "parameter", unit
         if isinstance(value, bool) or not isinstance(value, (int, float)) or not np.isfinite(value):
             raise OptionError(f"every run needs a finite number as parameter, found {value!r}",
                               fix="write parameter = 0.5 in each [[runs]] table")
+    workers = check_workers(workers)
     started = time.time()
     key = hashlib.sha256(json.dumps([[os.path.abspath(r["path"]), float(r["parameter"]), label]
                                      for r, label in zip(runs, labels)]).encode()
                          + options.key().encode()).hexdigest()[:16]
-    with output_transaction(out):
+    folders = [os.path.join(os.fspath(out), f"run_{label}") for label in labels]
+    with output_transaction(out) as txn:
         prepare_output_folder(out, overwrite=overwrite, resume=resume, run_key=key)
-        rows, results = [], []
-        for r, label in zip(runs, labels):
-            folder = os.path.join(os.fspath(out), f"run_{label}")
-            done = _finished(folder) if resume else None
-            if done is None:
-                res = measure(r["path"], options=options, out=folder, workers=workers, progress=progress,
-                              resume=resume and os.path.isdir(folder), contours=contours,
-                              snapshots=snapshots)
-                steps, audit = res.steps, res.audit
-            else:
-                res, (steps, audit) = None, done
-            results.append(res)
+        if txn is not None:  # a failed run leaves the finished ones for --resume
+            txn.worth_keeping = lambda: any(_finished(f) is not None for f in folders)
+        done = [_finished(f) if resume else None for f in folders]
+        todo = [k for k, d in enumerate(done) if d is None]
+        jobs = [_RunJob(k, labels[k], runs[k]["path"], folders[k], resume and os.path.isdir(folders[k]))
+                for k in todo]
+        settings = dict(options=options, contours=contours, snapshots=snapshots, scheduler=scheduler,
+                        plot_format=plot_format, keep_cache=keep_cache)
+        results = [None] * len(runs)
+        if workers > 1 and len(jobs) > 1 and not scheduler:
+            measured = _side_by_side(jobs, settings, workers=workers, progress=progress)
+        else:
+            measured = _one_after_another(jobs, settings, workers=workers, progress=progress, total=len(runs))
+        for k, res in measured.items():
+            results[k] = res
+            done[k] = (res.steps, res.audit)
+        rows = []
+        for k, (r, label) in enumerate(zip(runs, labels)):
+            steps, audit = done[k]
             rows.append({"run": label, "parameter": float(r["parameter"]), "path": os.path.abspath(r["path"]),
                          "folder": f"run_{label}", **campaign_summary(steps, audit)})
         table = _table(rows)
@@ -145,6 +178,119 @@ def run_campaign(runs: list, options, *, out, parameter: str = "parameter", unit
         write_campaign_report(out, table, parameter=parameter, unit=unit, version=package_version(), started=started,
                               run_key=key)
     return CampaignResult(table=table, runs=results, parameter=parameter, unit=unit)
+
+
+@dataclass(frozen=True)
+class _RunJob:
+    """One run still to measure: its number, label, series, folder and whether to resume it."""
+
+    index: int
+    label: str
+    path: str
+    folder: str
+    resume: bool
+
+
+def _measure_job(job: _RunJob, settings: dict, *, workers: int, progress, progress_label: str):
+    from .measure import measure
+
+    return measure(job.path, out=job.folder, workers=workers, resume=job.resume, progress=progress,
+                   progress_label=progress_label, **settings)
+
+
+def _one_after_another(jobs, settings, *, workers, progress, total) -> dict:
+    """Measure the runs in this process, one after another, each with ``workers`` processes."""
+    measured = {}
+    for job in jobs:
+        label = f"run {job.label} ({job.index + 1}/{total}): steps"
+        measured[job.index] = _measure_job(job, settings, workers=workers, progress=progress, progress_label=label)
+    return measured
+
+
+def _side_by_side(jobs, settings, *, workers, progress) -> dict:
+    """Measure the runs in forked processes, up to ``workers`` at a time (see :func:`run_campaign`).
+
+    Each run's process sends back its result (without the mesh) or its error. The
+    first error stops the other runs (their folders stay resumable) and is raised.
+    """
+    import multiprocessing as mp
+    from multiprocessing.connection import wait
+
+    from .progress import Progress
+
+    ctx = mp.get_context("fork") if hasattr(os, "fork") else mp.get_context()
+    side = min(workers, len(jobs))
+    inner = max(1, workers // len(jobs))
+    queue = list(jobs)
+    running = {}  # connection -> (job, process)
+    measured = {}
+    bar = Progress(len(jobs), "runs", enabled=progress)
+
+    def show():
+        names = ", ".join(job.label for job, _ in running.values())
+        bar.label = "runs" + (f" (measuring {names})" if names else "")
+
+    try:
+        while queue or running:
+            while queue and len(running) < side:
+                job = queue.pop(0)
+                receive, send = ctx.Pipe(duplex=False)
+                process = ctx.Process(target=_serve_run, args=(job, settings, inner, send, os.getpid()),
+                                      name=f"phasegauge-run-{job.label}", daemon=False)
+                process.start()
+                send.close()
+                running[receive] = (job, process)
+                show()
+                bar.update(0)
+            for conn in wait(list(running)):
+                job, process = running.pop(conn)
+                try:
+                    kind, payload, trace = conn.recv()
+                except (EOFError, OSError):
+                    kind, payload, trace = "lost", None, ""
+                conn.close()
+                process.join()
+                if kind == "error":
+                    from .executors import WorkerTraceback
+
+                    raise payload from WorkerTraceback(trace)
+                if kind == "lost":
+                    from ..errors import AnalysisError
+
+                    raise AnalysisError(f"the process measuring run {job.label} ended without a result "
+                                        f"(exit status {process.exitcode})", where=job.folder,
+                                        fix="rerun with --resume (and fewer workers if memory ran out)")
+                measured[job.index] = payload
+                show()
+                bar.update()
+    finally:
+        for conn, (job, process) in running.items():  # an error or an interrupt: stop the others
+            process.terminate()
+        for conn, (job, process) in running.items():
+            process.join()
+            conn.close()
+        bar.close()
+    return measured
+
+
+def _serve_run(job: _RunJob, settings: dict, workers: int, conn, parent: int) -> None:
+    """A forked campaign worker: measure one run and send ``('result', MeasureResult, '')`` or
+    ``('error', exception, traceback text)``."""
+    import traceback
+
+    from .executors import _die_with_parent, _portable
+
+    _die_with_parent(parent)
+    try:
+        result = _measure_job(job, settings, workers=workers, progress=False, progress_label="steps")
+        result.mesh = None  # the parent draws nothing: the run's report is written
+        message = ("result", result, "")
+    except BaseException as exc:  # handed to the parent, which raises it
+        message = ("error", _portable(exc), traceback.format_exc())
+    try:
+        conn.send(message)
+    finally:
+        conn.close()
 
 
 def _table(rows):

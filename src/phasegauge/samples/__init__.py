@@ -14,8 +14,10 @@ Series (see ``sample_fields/README.md``):
     quads) and by a bounded flux-corrected TVD scheme (100 x 100 quads); ``c``
     in [0, 1] and ``velocity`` on cells; numbered VTU files with ``TimeValue``.
 ``channel_mixing``
-    Two streams in a channel: steady Graetz-type series solution for three
-    Peclet numbers; ``c`` and ``velocity`` on the points of triangles; XDMF.
+    Two streams in a channel at four inlet flow rates: a folder of four XDMF
+    series (one steady step each, the Graetz-type series solution), ``c`` and
+    ``velocity`` on the points of triangles; a campaign
+    (``recipes/channel_mixing.toml``).
 ``droplets_3d``
     Two droplets pushed together by a straining flow and merging (advective
     Cahn-Hilliard); ``phi`` and ``velocity`` on the points of hexahedra; XDMF.
@@ -86,7 +88,8 @@ def write_samples(directory, *, names=None, progress=None) -> dict:
     -------
     dict
         Series name -> path to give to ``phasegauge measure`` (an ``.xdmf``
-        file, or the folder of numbered ``.vtu`` files).
+        file, or the folder of numbered ``.vtu`` files); for ``channel_mixing``
+        the folder of its series, one per flow rate (each a campaign run).
 
     Raises
     ------
@@ -97,7 +100,7 @@ def write_samples(directory, *, names=None, progress=None) -> dict:
 
     Notes
     -----
-    All five series take some tens of seconds on two cores; the values do
+    All the series take some tens of seconds on two cores; the values do
     not depend on the machine beyond floating-point round-off.
     """
     chosen = list(SAMPLE_NAMES) if names is None else [str(n) for n in names]

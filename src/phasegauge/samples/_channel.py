@@ -1,10 +1,13 @@
-"""Sample ``channel_mixing``: a dye stream meeting clear water in a straight channel.
+"""Sample ``channel_mixing``: a dye stream meeting clear water in a straight channel, at four flow rates.
 
 Invented scenario: in the dosing channel of a dye-mixing unit, dyed water
 (c = 1) enters through the lower half of the inlet and clear water (c = 0)
-through the upper half. The flow is laminar plane Poiseuille flow, mean speed
-1, channel height 1, length 10. The steady concentration is computed for three
-Peclet numbers Pe = U H / D (one step each; the step's time holds Pe).
+through the upper half. The flow is laminar plane Poiseuille flow in a channel
+of height 1 and length 10; the dye diffuses with D = 0.04. The operator runs
+the unit at four inlet flow rates Q (per unit depth, Q = U H with U the mean
+speed): 0.5, 1, 1.5 and 2, so Pe = U H / D = 12.5, 25, 37.5 and 50. Each flow
+rate is its own series (one XDMF file, one steady step at time 0): a campaign
+of four runs, ``recipes/channel_mixing.toml``.
 
 Model: steady advection-diffusion with the axial diffusion neglected (valid for
 Pe >> 1), ``u(y) dc/dx = D d2c/dy2`` with no flux through the walls: a
@@ -23,14 +26,15 @@ import numpy as np
 from ._meshes import box_triangles
 from ._writers import write_xdmf_series
 
-__all__ = ["CHANNEL", "poiseuille_velocity", "channel_concentration", "write_channel_mixing"]
+__all__ = ["CHANNEL", "poiseuille_velocity", "channel_concentration", "flow_rate_name", "write_channel_mixing"]
 
 #: invented parameters (dimensionless)
 CHANNEL = {
     "length": 10.0,
     "height": 1.0,
-    "mean_velocity": 1.0,
-    "peclet": (20.0, 80.0, 320.0),
+    "mean_velocity": 1.0,         # channel_concentration works at mean speed 1: c depends on Pe only
+    "diffusivity": 0.04,
+    "flow_rates": (0.5, 1.0, 1.5, 2.0),   # Q = U H per unit depth
     "transverse_cells": 400,     # grid of the eigenfunctions
     "mesh_spacing": 0.04,        # triangle edge length: about 14 500 triangles
     "seed": 11,
@@ -95,17 +99,35 @@ def channel_concentration(x, y, peclet: float, params=CHANNEL) -> np.ndarray:
     return np.einsum("pk,k,pk->p", at_y, coeff, np.exp(np.outer(x, rates)))
 
 
-def write_channel_mixing(directory: str, params=CHANNEL) -> str:
-    """Write ``channel_mixing.xdmf`` (+ ``.h5``): c and velocity on the points of triangles.
+def flow_rate_name(flow_rate: float) -> str:
+    """File stem of the series at ``flow_rate``: ``flow_rate_0.5``, ``flow_rate_1``, ..."""
+    return f"flow_rate_{flow_rate:g}"
 
-    One step per Peclet number; the step's time is the Peclet number. c is
-    float64, velocity float32 (stored once: it is the same in every step).
+
+def write_channel_mixing(directory: str, params=CHANNEL) -> str:
+    """Write the folder ``channel_mixing/``: one series per inlet flow rate.
+
+    Each ``flow_rate_<Q>.xdmf`` (+ ``.h5``) holds one steady step (time 0): c
+    (float64) and the Poiseuille velocity of mean speed Q / H (float32) on the
+    points of the same triangles. The Peclet number of each is Q / D.
+
+    Returns
+    -------
+    str
+        The folder (give its files to a campaign recipe, one ``[[runs]]`` each).
     """
+    folder = os.path.join(directory, "channel_mixing")
+    os.makedirs(folder, exist_ok=True)
     mesh = box_triangles(((0.0, params["length"]), (0.0, params["height"])), params["mesh_spacing"],
                          seed=params["seed"])
     x, y = mesh.points[:, 0], mesh.points[:, 1]
-    u = poiseuille_velocity(y, height=params["height"], mean_velocity=params["mean_velocity"])
-    velocity = np.column_stack([u, np.zeros_like(u), np.zeros_like(u)]).astype(np.float32)
-    steps = ((pe, {"c": np.clip(channel_concentration(x, y, pe, params), 0.0, 1.0),
-                   "velocity": velocity}, None) for pe in params["peclet"])
-    return write_xdmf_series(os.path.join(directory, "channel_mixing.xdmf"), mesh, steps)
+    height = params["height"]
+    for flow_rate in params["flow_rates"]:
+        mean = flow_rate / height
+        peclet = mean * height / params["diffusivity"]
+        u = poiseuille_velocity(y, height=height, mean_velocity=mean)
+        velocity = np.column_stack([u, np.zeros_like(u), np.zeros_like(u)]).astype(np.float32)
+        c = np.clip(channel_concentration(x, y, peclet, params), 0.0, 1.0)
+        write_xdmf_series(os.path.join(folder, flow_rate_name(flow_rate) + ".xdmf"), mesh,
+                          [(0.0, {"c": c, "velocity": velocity}, None)])
+    return folder
