@@ -30,7 +30,7 @@ def measure_figures(result, snapshots: dict | None = None) -> list:
         figures.append(("phase_volume_drift", "Phase-volume drift relative to the first step",
                         _plots_mixing.plot_phase_volume_drift(steps)))
     if _has(steps, "interface_width") and len(steps) > 1:
-        figures.append(("interface_width", "Interface width (5-95 %) in length units and in cells",
+        figures.append(("interface_width", "Interface width (5-95 %) in mesh units and in cells",
                         _plots_interface.plot_interface_width(steps)))
     if _has(steps, "coarsening_length") and len(steps) > 1:
         fit = next((f.figures for f in getattr(result, "findings", []) if f.kind == "coarsening"), None)
