@@ -69,7 +69,12 @@ def write_compare_report(out, result, *, specs, overlays, inputs: list, version:
     """
     out = os.fspath(out)
     written = []
-    for name, frame in (("comparison.csv", result.comparison), ("pairs.csv", result.pairs),
+    pairs = result.pairs
+    if pairs is not None and {"step_a", "time_a"} <= set(pairs.columns) and "step" not in pairs.columns:
+        # pairs.csv starts step, time (the first run's) as every per-step table does
+        pairs = pairs.assign(step=pairs["step_a"], time=pairs["time_a"])
+        pairs = pairs[["step", "time", *[c for c in pairs.columns if c not in ("step", "time")]]]
+    for name, frame in (("comparison.csv", result.comparison), ("pairs.csv", pairs),
                         ("droplet_statistics.csv", result.droplet_statistics),
                         ("reference_checks.csv", result.reference_checks)):
         if frame is not None and len(frame):
