@@ -323,3 +323,21 @@ def test_compare_range_is_one_name(tmp_path):
     assert [run["range"] for run in entries[0]] == [[-0.1, 1.1], [0, 2]]
     with pytest.raises(OptionError, match="no option 'rnge'; did you mean 'range'"):
         RunSpec(first, "alpha", rnge=(0, 1))
+
+
+def test_2d_box_gives_one_manifest_entry(tmp_path):
+    """A 2D box: four numbers on the command line, two pairs in a recipe or in Python, or two pairs
+    and an unbounded z pair, give one manifest entry."""
+    listing = _series(str(tmp_path), steps=1, n=8)
+    _cli(["measure", listing, "-o", str(tmp_path / "cli"), "--field", "alpha", "--analyses", "mixing",
+          "--box", "0,1,0,0.5"])
+    recipe = _recipe(str(tmp_path / "r.toml"), listing, str(tmp_path / "recipe"),
+                     [("input", "field", '"alpha"'), ("mixing", "box", "[[0, 1], [0, 0.5]]"),
+                      ("run", "analyses", '["mixing"]')])
+    run_recipe(recipe)
+    measure(listing, "alpha", out=tmp_path / "api", analyses=("mixing",), box=((0, 1), (0, 0.5)))
+    measure(listing, "alpha", out=tmp_path / "api_z", analyses=("mixing",),
+            box=((0, 1), (0, 0.5), (-np.inf, np.inf)))
+    boxes = [_options(tmp_path / k)["box"] for k in ("cli", "recipe", "api", "api_z")]
+    assert boxes == [[[0, 1], [0, 0.5]]] * 4
+    assert MeasureOptions(field="c", box=((0, 1), (0, 0.5), (-1, 1))).box == ((0, 1), (0, 0.5), (-1, 1))
