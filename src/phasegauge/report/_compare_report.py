@@ -110,10 +110,15 @@ def write_compare_report(out, result, *, specs, overlays, inputs: list, version:
     if result.droplet_statistics is not None and len(result.droplet_statistics):
         page.heading("Droplet statistics")
         stats = result.droplet_statistics
-        shown = [c for c in ("step", "time", "droplet_count_a", "droplet_count_b", "mean_equivalent_diameter_a",
-                             "mean_equivalent_diameter_b", "size_ks_pvalue", "size_ks_note") if c in stats]
-        page.table(stats[shown])
-        page.paragraph("_a is " + a + ", _b is " + b + "; every column is in droplet_statistics.csv.", "note")
+        # short headers and the size-test note below the table, so the table fits the page
+        short = {"step": "step", "time": "time", "droplet_count_a": "count_a", "droplet_count_b": "count_b",
+                 "mean_equivalent_diameter_a": "mean_diameter_a", "mean_equivalent_diameter_b": "mean_diameter_b",
+                 "size_ks_pvalue": "size_ks_pvalue"}
+        page.table(stats[[c for c in short if c in stats]].rename(columns=short))
+        notes = [str(n) for n in dict.fromkeys(stats.get("size_ks_note", [])) if isinstance(n, str) and n]
+        page.paragraph("_a is " + a + ", _b is " + b + "; count is droplet_count, mean_diameter is "
+                       "mean_equivalent_diameter; every column is in droplet_statistics.csv."
+                       + (" Size test: " + "; ".join(notes) + "." if notes else ""), "note")
     page.paragraph("All columns are in comparison.csv; each run's own steps table is in steps_<label>.csv.", "note")
     page.paragraph(CAUTION, "note")
     atomic_write_text(os.path.join(out, "report.html"), page.render())
