@@ -38,6 +38,11 @@ def _unlabelled(seen):
         for ax in axes:
             if not ax.get_visible() or not ax.axison:
                 continue
+            colorbar = getattr(ax, "_colorbar", None)  # a colorbar's one axis carries its label
+            if colorbar is not None:
+                if not (ax.get_xlabel() or ax.get_ylabel()):
+                    missing.append((name, "colorbar", "label"))
+                continue
             shared = ax.get_shared_x_axes().get_siblings(ax)
             if not any(other.get_xlabel() for other in shared):
                 missing.append((name, ax.get_title(), "x"))
@@ -61,11 +66,14 @@ def _labels(seen):
 
 
 def test_measure_figures_have_both_labels_and_units(tmp_path, saved_axes):
-    measure(_discs(tmp_path, "a", "quad", steps=4), "alpha", out=tmp_path / "m", section_axis="x", section_count=4)
+    measure(_discs(tmp_path, "a", "quad", steps=4), "alpha", out=tmp_path / "m", section_axis="x", section_count=4,
+            probes=(("mid", 0.5, 0.5, 0.0),), lines=(("across", 0.0, 0.5, 0.0, 1.0, 0.5, 0.0, 9),),
+            measured=((0.5, 0.5, 0.0, 0.5, float("nan"), 0.1), (0.3, 0.5, 0.0, 1.0, 0.15, float("nan"))))
     assert len(saved_axes) >= 5
     assert _unlabelled(saved_axes) == []
     labels = _labels(saved_axes)
-    assert {TIME_LABEL, "x (mesh units)", "y (mesh units)", "interface width (mesh units)"} <= labels
+    assert {TIME_LABEL, "x (mesh units)", "y (mesh units)", "interface width (mesh units)",
+            "distance along the line (mesh units)", "simulated"} <= labels
 
 
 def test_compare_figures_have_both_labels_and_units(tmp_path, saved_axes):

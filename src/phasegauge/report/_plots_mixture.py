@@ -43,7 +43,7 @@ def plot_compositions_on_diagram(steps, diagram: dict):
     ax.scatter(steps["mean_composition"].to_numpy(dtype=float), temperature, c=time, marker="x", s=26,
                label="mean composition", **norm)
     if shown is not None and len(time):
-        figure.colorbar(shown, ax=ax, label="time")
+        figure.colorbar(shown, ax=ax, label=TIME_LABEL)
     ax.set_xlim(0.0, 1.0)
     ax.set_ylim(float(np.min(t)), float(np.max(t)))
     ax.set_xlabel(f"mole fraction of {diagram.get('component', 'the component')}")

@@ -92,7 +92,7 @@ def plot_validation_overlay(table, summary=None):
         if np.isfinite(unc[ok]).any():
             ax.errorbar(measured[ok], simulated[ok], xerr=err[ok], fmt="none", ecolor="0.6", lw=0.8, zorder=2)
         if len(np.unique(times[ok])) > 1:
-            figure.colorbar(points, ax=ax, label="time")
+            figure.colorbar(points, ax=ax, label=TIME_LABEL)
         lo = float(min(measured[ok].min(), simulated[ok].min()))
         hi = float(max(measured[ok].max(), simulated[ok].max()))
         ax.plot([lo, hi], [lo, hi], color="k", lw=0.8, ls="--", label="simulated = measured")
