@@ -73,7 +73,7 @@ def test_measure_figures_have_both_labels_and_units(tmp_path, saved_axes):
     assert _unlabelled(saved_axes) == []
     labels = _labels(saved_axes)
     assert {TIME_LABEL, "x (mesh units)", "y (mesh units)", "interface width (mesh units)",
-            "distance along the line (mesh units)", "simulated"} <= labels
+            "distance along the line (mesh units)", "simulated", "position along x (mesh units)"} <= labels
 
 
 def test_compare_figures_have_both_labels_and_units(tmp_path, saved_axes):

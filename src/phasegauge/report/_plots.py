@@ -61,10 +61,19 @@ def measure_figures(result, snapshots: dict | None = None) -> list:
         weighting = "flow" if _has(profiles, "mixing_index_flow") else "area"
         figures.append(("mixing_profile", "Mixing index along the channel (cross sections)",
                         _plots_mixing.plot_mixing_profile(by_step, weighting=weighting,
-                                                          target=result.options.mixing_target)))
+                                                          target=result.options.mixing_target,
+                                                          axis_label=_position_label(result.options))))
     figures += _probe_figures(result)
     figures += _mixture_figures(result)
     return figures
+
+
+def _position_label(options) -> str:
+    """The x label of the mixing profile: the position along the section axis, in mesh units."""
+    from ._canvas import in_mesh_units
+
+    axis = getattr(options, "section_axis", None)
+    return in_mesh_units(f"position along {axis}" if axis else "position along the axis")
 
 
 def _mixture_figures(result) -> list:
