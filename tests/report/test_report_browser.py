@@ -104,7 +104,7 @@ def _check_page(dom, shot, folder):
         [heading for heading, attrs in dom.tables if attrs.get("data-fits") != "true"]
 
 
-def _discs(folder, prefix, kind, steps=3):
+def _discs(folder, prefix, kind, steps=2):
     mesh = grid_mesh((12, 12), kind=kind)
     x, y = mesh.cell_centroids[:, 0], mesh.cell_centroids[:, 1]
     for k in range(steps):
