@@ -115,7 +115,7 @@ def write_compare_report(out, result, *, specs, overlays, inputs: list, version:
                  "mean_equivalent_diameter_a": "mean_diameter_a", "mean_equivalent_diameter_b": "mean_diameter_b",
                  "size_ks_pvalue": "size_ks_pvalue"}
         page.table(stats[[c for c in short if c in stats]].rename(columns=short))
-        notes = [str(n) for n in dict.fromkeys(stats.get("size_ks_note", [])) if isinstance(n, str) and n]
+        notes = [n.rstrip(".") for n in dict.fromkeys(stats.get("size_ks_note", [])) if isinstance(n, str) and n]
         page.paragraph("_a is " + a + ", _b is " + b + "; count is droplet_count, mean_diameter is "
                        "mean_equivalent_diameter; every column is in droplet_statistics.csv."
                        + (" Size test: " + "; ".join(notes) + "." if notes else ""), "note")
