@@ -57,3 +57,16 @@ def test_module_entry_point_and_help():
     out = subprocess.run([sys.executable, "-m", "phasegauge", "--help"], capture_output=True, text=True,
                          env=subprocess_env())
     assert out.returncode == 0 and "inspect" in out.stdout
+
+
+def test_inspect_help_lists_the_readme_formats():
+    """Every suffix the README's PATH paragraph and step-listing paragraph name is in `inspect --help`."""
+    import os
+    import re
+
+    readme = open(os.path.join(os.path.dirname(__file__), "..", "README.md"), encoding="utf-8").read()
+    paragraphs = [p for p in readme.split("\n\n") if p.startswith(("`PATH` is one mesh file", "**Step listing**"))]
+    suffixes = set(re.findall(r"`(\.[a-z]+)`", " ".join(paragraphs)))
+    assert {".vtu", ".vtk", ".vtm", ".steps", ".list"} <= suffixes
+    text = " ".join(CliRunner().invoke(main, ["inspect", "--help"]).output.split())
+    assert sorted(s for s in suffixes if s not in text) == []

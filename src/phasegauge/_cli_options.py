@@ -39,10 +39,7 @@ def _box(text):
     if len(values) not in (4, 6):
         raise OptionError(f"--box needs 4 (2D) or 6 (3D) numbers xmin,xmax,ymin,ymax[,zmin,zmax], found "
                           f"{len(values)}", fix="for example --box 0,1,0,0.5")
-    pairs = [values[i:i + 2] for i in range(0, len(values), 2)]
-    if len(pairs) == 2:
-        pairs.append((-1e300, 1e300))
-    return tuple(pairs)
+    return tuple(tuple(values[i:i + 2]) for i in range(0, len(values), 2))
 
 
 _measure_options = (

@@ -87,7 +87,7 @@ def test_cahn_hilliard_profile_widths(kind, cells_across):
     mesh, width = _slab(kind, cells_across)
     eps_ch = width / 4.164066
     ind = _indicator(mesh, "point", lambda X: np.tanh((X[:, 0] - 0.4981) / (np.sqrt(2) * eps_ch)),
-                     value_range=(-1, 1))
+                     range=(-1, 1))
     r = interface_metrics(mesh, ind)
     high = 0.08 if cells_across == 4 else 0.03
     for key in ESTIMATORS:

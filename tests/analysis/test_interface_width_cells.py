@@ -26,7 +26,7 @@ def _cell_average_profile(cells_per_eps):
         return EPS * np.logaddexp(0.0, (t - 0.5) / EPS)
 
     c = (antiderivative(x + h / 2) - antiderivative(x - h / 2)) / h
-    return mesh, make_indicator(mesh, StepFields(cell_data={"c": c}), "c", value_range=(0, 1))
+    return mesh, make_indicator(mesh, StepFields(cell_data={"c": c}), "c", range=(0, 1))
 
 
 @pytest.mark.parametrize("cells_per_eps, tolerance", [(4, 0.002), (2, 0.005), (1, 0.02)])

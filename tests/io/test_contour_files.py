@@ -104,3 +104,28 @@ def test_snapshot_plot(tmp_path, dim):
     assert len(fig.axes) == (1 if dim == 2 else 4)
     with pytest.raises(OptionError, match="no interfaces"):
         plot_interface_snapshots({}, bounds=drawn["bounds"])
+
+
+@pytest.mark.parametrize("binary", [True, False])
+@pytest.mark.parametrize("empty", [False, True])
+def test_legacy_vtk_carries_time_and_step(tmp_path, monkeypatch, binary, empty):
+    """A legacy .vtk contour holds TimeValue and step as dataset field data where VTK's legacy writer
+    puts it (after the DATASET line), read back by VTK's own legacy reader (pyvista, outside the
+    project); meshio still reads the geometry (its legacy reader leaves dataset field data out)."""
+    import meshio
+    import pyvista
+
+    if not binary:  # the ASCII flavour of meshio's legacy writer
+        write = meshio.write
+        monkeypatch.setattr(meshio, "write", lambda *a, **k: write(*a, binary=False, **k))
+    mesh, contour = _contour(2, "quad")
+    if empty:
+        contour = find_interface(mesh, np.zeros(mesh.n_points))
+    path = write_contour(contour, tmp_path / "c.vtk", time=0.125, step=7)
+    grid = pyvista.read(path)
+    assert float(grid.field_data["TimeValue"][0]) == 0.125 and int(grid.field_data["step"][0]) == 7
+    assert grid.n_cells == contour.n_elements
+    if not empty:
+        assert np.allclose(grid.cell_data["size"], contour.element_sizes)
+        assert meshio.read(path).cells[0].data.shape == (contour.n_elements, 2)
+        assert read_contour(path).size == pytest.approx(contour.size)

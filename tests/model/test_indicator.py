@@ -34,7 +34,7 @@ def test_parse_range_rejects(text):
 def test_point_and_cell_data_use_consistent_conversions():
     m = grid_mesh((4, 4), kind="triangle")
     phi = 2 * m.points[:, 0] - 1
-    ind = make_indicator(m, StepFields(point_data={"phi": phi}), "phi", value_range=(-1, 1))
+    ind = make_indicator(m, StepFields(point_data={"phi": phi}), "phi", range=(-1, 1))
     assert ind.location == "point"
     assert np.allclose(ind.point, m.points[:, 0])
     assert np.allclose(ind.cell, m.cell_centroids[:, 0])  # linear field: corner mean = centroid value
@@ -57,10 +57,10 @@ def test_range_warning_for_order_parameter_mapped_as_fraction():
     m = grid_mesh((2, 2))
     phi = np.linspace(-1, 1, m.n_points)
     with pytest.warns(RangeWarning, match="--range -1,1"):
-        make_indicator(m, StepFields(point_data={"phi": phi}), "phi", value_range=(0, 1))
+        make_indicator(m, StepFields(point_data={"phi": phi}), "phi", range=(0, 1))
     with warnings.catch_warnings():
         warnings.simplefilter("error")
-        make_indicator(m, StepFields(point_data={"phi": phi}), "phi", value_range=(-1, 1))
+        make_indicator(m, StepFields(point_data={"phi": phi}), "phi", range=(-1, 1))
 
 
 def test_field_errors_name_the_fix():
@@ -103,3 +103,22 @@ def test_field_location_errors_say_where_the_field_is():
     assert make_indicator(m, only_points, "c").source == "'c': point data"
     with pytest.raises(OptionError, match="field location must be 'cell' or 'point'"):
         make_indicator(m, only_points, "c", field_location="faces")
+
+
+def test_old_range_keyword_warns_and_gives_the_same_indicator():
+    from phasegauge.errors import OldNameWarning, OptionError
+
+    m = grid_mesh((4, 4), kind="quad")
+    phi = np.linspace(-1, 1, m.n_points)
+    fields = StepFields(point_data={"phi": phi})
+    new = make_indicator(m, fields, "phi", range=(-1, 1))
+    with pytest.warns(OldNameWarning, match="make_indicator\\(\\): 'value_range' is the old name of 'range'"):
+        old = make_indicator(m, fields, "phi", value_range=(-1, 1))
+    np.testing.assert_array_equal(old.point, new.point)
+    assert new.range == (-1.0, 1.0)
+    with pytest.warns(OldNameWarning, match="map_to_indicator"):
+        np.testing.assert_array_equal(map_to_indicator(phi, value_range=(-1, 1)), map_to_indicator(phi, range=(-1, 1)))
+    with pytest.raises(OptionError, match="got 'range' and its old name 'value_range'"):
+        make_indicator(m, fields, "phi", range=(-1, 1), value_range=(-1, 1))
+    with pytest.raises(OptionError, match="no option 'rang'; did you mean 'range'"):
+        make_indicator(m, fields, "phi", rang=(-1, 1))

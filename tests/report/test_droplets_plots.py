@@ -46,7 +46,7 @@ def test_size_distribution_plot(tables, tmp_path):
     droplets, _ = tables
     fig = plot_size_distribution(droplets)
     ax = fig.axes[0]
-    assert ax.get_ylabel() == "equivalent diameter"
+    assert ax.get_ylabel() == "equivalent diameter (mesh units)"
     median = ax.lines[0]
     np.testing.assert_allclose(median.get_ydata()[-2], 0.1 / 2)  # sizes 0.1, 0.05, 0.0333: median 0.05
     fig.savefig(tmp_path / "sizes.png")

@@ -1,8 +1,8 @@
 """The sections both report pages show, read with the standard library's HTML parser.
 
-No headless browser is installed where the tests run (and none is in .ci/run), so the page is
-checked as parsed HTML, not as a screenshot: headings in order, the "what was run" table and the
-files footer.
+The page is checked as parsed HTML, which needs no browser: headings in order, the "what was run"
+table and the files footer. test_report_browser.py renders both pages in headless chromium (after
+layout, with a screenshot) where chromium is installed; this test covers machines without it.
 """
 
 from html.parser import HTMLParser

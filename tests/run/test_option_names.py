@@ -290,3 +290,54 @@ def test_old_recipe_key_of_the_equilibrium_tolerance(tmp_path):
     with pytest.warns(OldNameWarning, match=r"\[miscibility\] tolerance is the old name of equilibrium_tolerance"):
         loaded = load_recipe(str(recipe))
     assert measure_arguments(loaded)["options"].equilibrium_tolerance == 0.02
+
+
+def _runs_entry(out):
+    with open(os.path.join(out, "manifest.json"), encoding="utf-8") as handle:
+        runs = json.load(handle)["runs"]
+    return [{k: v for k, v in run.items() if k != "path"} for run in runs]
+
+
+def test_compare_range_is_one_name(tmp_path):
+    """compare's --range-a/--range-b, the recipe's [first]/[second] range and RunSpec(range=) give one
+    manifest entry; RunSpec's old keyword value_range warns and gives it too."""
+    from phasegauge.run.compare import RunSpec, compare_runs
+
+    a, b = tmp_path / "a", tmp_path / "b"
+    a.mkdir(), b.mkdir()
+    first, second = _series(str(a), steps=2, n=8), _series(str(b), steps=2, n=8)
+    _cli(["compare", first, second, "--field-a", "alpha", "--field-b", "alpha", "--range-a", "-0.1,1.1",
+          "--range-b", "0,2", "--label-a", "one", "--label-b", "two", "-q", "-o", str(tmp_path / "cli")])
+    recipe = tmp_path / "c.toml"
+    recipe.write_text(f'[first]\npath = "{first}"\nfield = "alpha"\nrange = [-0.1, 1.1]\nlabel = "one"\n'
+                      f'[second]\npath = "{second}"\nfield = "alpha"\nrange = [0, 2]\nlabel = "two"\n'
+                      f'[output]\nfolder = "{tmp_path / "recipe"}"\n')
+    _cli(["run", str(recipe), "--quiet"])
+    compare_runs(RunSpec(first, "alpha", range=(-0.1, 1.1), label="one"),
+                 RunSpec(second, "alpha", range=(0, 2), label="two"), out=tmp_path / "api")
+    with pytest.warns(OldNameWarning, match="'value_range' is the old name of 'range'"):
+        old = RunSpec(first, "alpha", value_range=(-0.1, 1.1), label="one")
+    compare_runs(old, RunSpec(second, "alpha", range=(0, 2), label="two"), out=tmp_path / "old")
+    entries = [_runs_entry(tmp_path / k) for k in ("cli", "recipe", "api", "old")]
+    assert entries[0] == entries[1] == entries[2] == entries[3]
+    assert [run["range"] for run in entries[0]] == [[-0.1, 1.1], [0, 2]]
+    with pytest.raises(OptionError, match="no option 'rnge'; did you mean 'range'"):
+        RunSpec(first, "alpha", rnge=(0, 1))
+
+
+def test_2d_box_gives_one_manifest_entry(tmp_path):
+    """A 2D box: four numbers on the command line, two pairs in a recipe or in Python, or two pairs
+    and an unbounded z pair, give one manifest entry."""
+    listing = _series(str(tmp_path), steps=1, n=8)
+    _cli(["measure", listing, "-o", str(tmp_path / "cli"), "--field", "alpha", "--analyses", "mixing",
+          "--box", "0,1,0,0.5"])
+    recipe = _recipe(str(tmp_path / "r.toml"), listing, str(tmp_path / "recipe"),
+                     [("input", "field", '"alpha"'), ("mixing", "box", "[[0, 1], [0, 0.5]]"),
+                      ("run", "analyses", '["mixing"]')])
+    run_recipe(recipe)
+    measure(listing, "alpha", out=tmp_path / "api", analyses=("mixing",), box=((0, 1), (0, 0.5)))
+    measure(listing, "alpha", out=tmp_path / "api_z", analyses=("mixing",),
+            box=((0, 1), (0, 0.5), (-np.inf, np.inf)))
+    boxes = [_options(tmp_path / k)["box"] for k in ("cli", "recipe", "api", "api_z")]
+    assert boxes == [[[0, 1], [0, 0.5]]] * 4
+    assert MeasureOptions(field="c", box=((0, 1), (0, 0.5), (-1, 1))).box == ((0, 1), (0, 0.5), (-1, 1))

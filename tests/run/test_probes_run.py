@@ -101,9 +101,13 @@ def test_measured_values_give_validation_tables(tmp_path):
     options = MeasureOptions(field="f", analyses=("conservation",), measured=read_measured_file(measured))
     result = measure(listing, options=options, out=tmp_path / "out", contours=False)
     table = pd.read_csv(tmp_path / "out" / "validation.csv")
-    assert list(table.columns) == ["time", "x", "y", "z", "measured", "simulated", "difference", "uncertainty",
+    assert list(table.columns) == ["step", "time", "x", "y", "z", "measured", "simulated", "difference", "uncertainty",
                                    "within_uncertainty"]
     assert len(table) == 2 + len(TIMES)
+    # t = 0.25 lies between steps 0 and 1: no step; the untimed value is compared at every step
+    assert table["step"].isna().sum() == 2
+    assert table.loc[table["x"] == 0.8, "step"].tolist() == list(range(len(TIMES)))
+    assert list(pd.read_csv(tmp_path / "out" / "validation_summary.csv").columns[:3]) == ["step", "time", "scope"]
     summary = result.validation_summary
     at = summary[summary["time"] == 0.25].iloc[0]
     # analytic figures of the offsets +0.01 and -0.03

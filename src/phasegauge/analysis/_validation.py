@@ -8,14 +8,15 @@ from ..errors import OptionError
 
 __all__ = ["validation_table", "validation_summary", "VALIDATION_COLUMNS", "SUMMARY_COLUMNS"]
 
-#: columns of validation.csv (one row per measured value and compared time)
-VALIDATION_COLUMNS = ("time", "x", "y", "z", "measured", "simulated", "difference", "uncertainty",
+#: columns of validation.csv (one row per measured value and compared time; ``step`` empty
+#: where the time lies between steps)
+VALIDATION_COLUMNS = ("step", "time", "x", "y", "z", "measured", "simulated", "difference", "uncertainty",
                       "within_uncertainty")
-#: columns of validation_summary.csv (one row per time, then one overall row with an empty time)
-SUMMARY_COLUMNS = ("scope", "time", "points", "rms_error", "bias", "largest_error", "within_uncertainty")
+#: columns of validation_summary.csv (one row per time, then one overall row with an empty step and time)
+SUMMARY_COLUMNS = ("step", "time", "scope", "points", "rms_error", "bias", "largest_error", "within_uncertainty")
 
 
-def validation_table(measured, times, simulated):
+def validation_table(measured, times, simulated, *, steps=None):
     """The simulation beside each measured value.
 
     Parameters
@@ -26,13 +27,16 @@ def validation_table(measured, times, simulated):
         Times of the steps, increasing.
     simulated : ndarray of shape (n_steps, n_measured)
         The simulated field at each measured position at every step.
+    steps : ndarray of int, shape (n_steps,), optional
+        Step numbers of the steps (default 0, 1, ...), for the ``step`` column.
 
     Returns
     -------
     DataFrame
         :data:`VALIDATION_COLUMNS`: a value with a time is compared with the
         simulation interpolated linearly in time there (NaN outside the steps'
-        time span); a value without a time is compared at every step.
+        time span; ``step`` is the step at that time, empty between steps);
+        a value without a time is compared at every step.
         ``difference`` is simulated minus measured; ``within_uncertainty`` is
         |difference| <= uncertainty (empty without an uncertainty).
     """
@@ -41,6 +45,7 @@ def validation_table(measured, times, simulated):
     rows = np.asarray(measured, dtype=float).reshape(-1, 6)
     times = np.asarray(times, dtype=float)
     simulated = np.asarray(simulated, dtype=float).reshape(len(times), len(rows))
+    steps = np.arange(len(times)) if steps is None else np.asarray(steps, dtype=np.int64).reshape(len(times))
     if len(times) > 1 and np.any(np.diff(times) <= 0):
         raise OptionError("step times must increase", fix="hand the steps in time order")
     timed = np.isfinite(rows[:, 4])
@@ -56,20 +61,25 @@ def validation_table(measured, times, simulated):
             sim = (1 - w) * simulated[j, k] + w * simulated[j + 1, k]
             span = (t >= times[0] - 1e-12 * max(1.0, abs(times[0]))) & (t <= times[-1] + 1e-12 * max(1.0, abs(times[-1])))
             sim = np.where(span, sim, np.nan)
-        parts.append((t, rows[k], sim))
+        at = np.clip(np.searchsorted(times, t), 0, len(times) - 1)
+        on_step = np.isclose(times[at], t, rtol=1e-12, atol=1e-12 * max(1.0, float(np.abs(times).max())))
+        parts.append((t, rows[k], sim, np.where(on_step, steps[at], -1)))
     if (~timed).any():
         k = np.flatnonzero(~timed)
-        parts.append((np.repeat(times, len(k)), np.tile(rows[k], (len(times), 1)), simulated[:, k].ravel()))
+        parts.append((np.repeat(times, len(k)), np.tile(rows[k], (len(times), 1)), simulated[:, k].ravel(),
+                      np.repeat(steps, len(k))))
     if not parts:
         return pd.DataFrame(columns=list(VALIDATION_COLUMNS))
     t = np.concatenate([p[0] for p in parts])
     r = np.concatenate([p[1] for p in parts])
     sim = np.concatenate([p[2] for p in parts])
+    step = pd.array(np.concatenate([p[3] for p in parts]), dtype="Int64")
+    step[step < 0] = pd.NA
     diff = sim - r[:, 3]
     unc = r[:, 5]
     within = pd.array(np.abs(diff) <= unc, dtype="boolean")
     within[~(np.isfinite(unc) & np.isfinite(diff))] = pd.NA
-    table = pd.DataFrame({"time": t, "x": r[:, 0], "y": r[:, 1], "z": r[:, 2], "measured": r[:, 3],
+    table = pd.DataFrame({"step": step, "time": t, "x": r[:, 0], "y": r[:, 1], "z": r[:, 2], "measured": r[:, 3],
                           "simulated": sim, "difference": diff, "uncertainty": unc, "within_uncertainty": within})
     return table.sort_values("time", kind="stable", ignore_index=True)
 
@@ -98,7 +108,8 @@ def validation_summary(table):
     -------
     DataFrame
         :data:`SUMMARY_COLUMNS`; ``scope`` is ``'time'`` for the rows of one
-        time and ``'overall'`` for the last row (its time empty). Points whose
+        time (``step`` empty between steps) and ``'overall'`` for the last row
+        (its step and time empty). Points whose
         simulated value is empty (outside the mesh or the time span) are left
         out; ``within_uncertainty`` counts only points with an uncertainty.
     """
@@ -107,7 +118,10 @@ def validation_summary(table):
     rows = []
     diff = table["difference"].to_numpy(dtype=float)
     within = table["within_uncertainty"]
+    step = table["step"] if "step" in table else pd.Series(pd.NA, index=table.index, dtype="Int64")
     for t, idx in table.groupby("time", sort=True).indices.items():
-        rows.append({"scope": "time", "time": t, **_figures(diff[idx], within.iloc[idx])})
-    rows.append({"scope": "overall", "time": np.nan, **_figures(diff, within)})
-    return pd.DataFrame(rows, columns=list(SUMMARY_COLUMNS))
+        rows.append({"step": step.iloc[idx[0]], "time": t, "scope": "time", **_figures(diff[idx], within.iloc[idx])})
+    rows.append({"step": pd.NA, "time": np.nan, "scope": "overall", **_figures(diff, within)})
+    frame = pd.DataFrame(rows, columns=list(SUMMARY_COLUMNS))
+    frame["step"] = frame["step"].astype("Int64")
+    return frame

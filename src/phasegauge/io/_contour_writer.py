@@ -3,10 +3,11 @@
 A contour (:class:`phasegauge.model.contour.Contour`) becomes a VTK
 unstructured grid of line (2D) or triangle (3D) cells through meshio: ``.vtu``
 (XML) or ``.vtk`` (legacy). Each element carries two cell arrays: ``cell``, the
-mesh cell it lies in, and ``size``, its length or area. A ``.vtu`` file also carries
-the step's time and number as one-value field-data arrays ``TimeValue`` and ``step``
-(the names VTK's own writers and readers use for a file's time), so a folder of them
-reads back as a series. The file appears in
+mesh cell it lies in, and ``size``, its length or area. Both formats also carry the
+step's time and number as one-value field-data arrays ``TimeValue`` and ``step``
+(the names VTK's own writers and readers use for a file's time; in a legacy file a
+dataset-level ``FIELD FieldData`` block, as VTK writes it), so a folder of them reads
+back as a series. The file appears in
 one step (written beside its final place, then renamed), so a reader never sees
 half a file.
 """
@@ -67,9 +68,9 @@ def write_contour(contour, path, *, time: float | None = None, step: int | None 
     path : str or os.PathLike
         Target file, ``.vtu`` or ``.vtk``; replaced if it exists.
     time : float, optional
-        Time of the step, kept as the field-data array ``TimeValue`` (``.vtu`` only).
+        Time of the step, kept as the one-value field-data array ``TimeValue``.
     step : int, optional
-        Number of the step, kept as the field-data array ``step`` (``.vtu`` only).
+        Number of the step, kept as the one-value field-data array ``step``.
 
     Returns
     -------
@@ -114,6 +115,8 @@ def write_contour(contour, path, *, time: float | None = None, step: int | None 
             meshio.write(tmp, mesh, file_format=file_format)
         if file_format == "vtu" and (time is not None or step is not None):
             _add_field_data(Path(tmp), time, step)
+        elif file_format == "vtk" and (time is not None or step is not None):
+            _add_legacy_field_data(Path(tmp), time, step)
         os.replace(tmp, path)
     except OSError as err:
         raise OutputError(f"cannot write the contour: {err}", where=str(path),
@@ -136,6 +139,33 @@ def _add_field_data(path: Path, time, step) -> None:
     text = path.read_text(encoding="ascii")
     block = "<FieldData>\n" + "\n".join(arrays) + "\n</FieldData>\n"
     path.write_text(text.replace("<UnstructuredGrid>\n", "<UnstructuredGrid>\n" + block, 1), encoding="ascii")
+
+
+def _add_legacy_field_data(path: Path, time, step) -> None:
+    """Put ``TimeValue`` and ``step`` into a legacy VTK file as a dataset-level ``FIELD FieldData`` block.
+
+    The block goes right after the ``DATASET`` line, where VTK's legacy writer puts a dataset's field
+    data; its values are ASCII or big-endian binary, as the file's third line says.
+    """
+    arrays = []
+    if time is not None and np.isfinite(time):
+        arrays.append(("TimeValue", "double", np.array([time], dtype=">f8")))
+    if step is not None:
+        arrays.append(("step", "vtktypeint64", np.array([step], dtype=">i8")))
+    if not arrays:
+        return
+    data = path.read_bytes()
+    lines = data.split(b"\n", 4)
+    binary = lines[2].strip().upper() == b"BINARY"
+    block = f"FIELD FieldData {len(arrays)}\n".encode("ascii")
+    for name, kind, value in arrays:
+        block += f"{name} 1 1 {kind}\n".encode("ascii")
+        block += (value.tobytes() if binary else repr(value.item()).encode("ascii")) + b"\n"
+    head = b"\n".join(lines[:4]) + b"\n"  # version, title, ASCII/BINARY, DATASET line
+    if not lines[3].startswith(b"DATASET"):
+        raise OutputError("unexpected legacy VTK header from the writer", where=str(path),
+                          fix="report this with the meshio version")
+    path.write_bytes(head + block + lines[4])
 
 
 def read_contour(path, *, plane_axes=None, dimension: int = 3):

@@ -2,7 +2,7 @@
 
 Every analysis works on one indicator ``c``: 0 in one phase, 1 in the phase
 being measured. A volume fraction is already such a field; an order parameter
-in [-1, 1] is mapped with ``value_range=(-1, 1)``; ``phase='lower'`` measures the
+in [-1, 1] is mapped with ``range=(-1, 1)``; ``phase='lower'`` measures the
 phase where the field is low.
 
 Point and cell values are used consistently by every analysis:
@@ -27,13 +27,14 @@ boundedness check. NaN and Inf are counted, reported and left out of integrals.
 
 from __future__ import annotations
 
+import difflib
 import re
 import warnings
 from dataclasses import dataclass
 
 import numpy as np
 
-from ..errors import (FieldNotFoundError, FieldShapeError, NonFiniteWarning, OptionError,
+from ..errors import (FieldNotFoundError, FieldShapeError, NonFiniteWarning, OldNameWarning, OptionError,
                       RangeWarning)
 from .fields import named_field
 from .mesh import Mesh
@@ -62,7 +63,7 @@ class Indicator:
         Number of NaN or Inf values in the input field.
     field : str
         Name of the input field.
-    value_range : tuple of float
+    range : tuple of float
         The field values mapped to 0 and 1 (before the phase side is applied).
     phase : {'upper', 'lower'}
     copies : tuple of str
@@ -75,9 +76,15 @@ class Indicator:
     location: str
     nonfinite: int
     field: str = ""
-    value_range: tuple = (0.0, 1.0)
+    range: tuple = (0.0, 1.0)
     phase: str = "upper"
     copies: tuple = ()
+
+    @property
+    def value_range(self) -> tuple:
+        """The old name of :attr:`range` (with an :class:`OldNameWarning`)."""
+        warnings.warn(OldNameWarning("'value_range' is the old name of 'range'"), stacklevel=2)
+        return self.range
 
     @property
     def source(self) -> str:
@@ -124,20 +131,45 @@ def normalize_phase(phase) -> str:
     return value
 
 
-def map_to_indicator(values, value_range=(0.0, 1.0), phase: str = "upper") -> np.ndarray:
+def _old_range_keyword(range, old: dict, where: str):
+    """``range``, or the value given under its old name ``value_range`` (with an :class:`OldNameWarning`).
+
+    Raises
+    ------
+    OptionError
+        A keyword that is neither (with the nearest name), or both names given.
+    """
+    for key in old:
+        if key != "value_range":
+            close = difflib.get_close_matches(key, ["range", "phase", "value_range"], n=1, cutoff=0.5)
+            hint = f"did you mean '{'range' if close == ['value_range'] else close[0]}'?" if close else ""
+            raise OptionError(f"{where} has no option '{key}'; {hint}".rstrip("; "),
+                              fix="see the README's table of option names")
+    if "value_range" not in old:
+        return range
+    if range is not None:
+        raise OptionError(f"{where} got 'range' and its old name 'value_range'", fix="give only range=...")
+    warnings.warn(OldNameWarning(f"{where}: 'value_range' is the old name of 'range'; write range=... "
+                                 "(the old name will be removed)"), stacklevel=3)
+    return old["value_range"]
+
+
+def map_to_indicator(values, range=None, phase: str = "upper", **old) -> np.ndarray:
     """Map field values linearly to c: LO -> 0, HI -> 1 (or reversed for ``phase='lower'``).
 
     Parameters
     ----------
     values : array_like
-    value_range : tuple of float
+    range : tuple of float or str, optional
+        Field values mapped to 0 and 1; default (0, 1). The old keyword
+        ``value_range`` still works, with an :class:`OldNameWarning`.
     phase : {'upper', 'lower'}
 
     Returns
     -------
     ndarray of float64, same shape; not clipped.
     """
-    lo, hi = parse_range(value_range)
+    lo, hi = parse_range(_old_range_keyword(range, old, "map_to_indicator()"))
     c = (np.asarray(values, dtype=np.float64) - lo) / (hi - lo)
     if normalize_phase(phase) == "lower":
         c = 1.0 - c
@@ -228,8 +260,8 @@ def select_field(fields, name: str, *, where: str = "", location: str | None = N
     return values.astype(np.float64, copy=False), location
 
 
-def make_indicator(mesh: Mesh, fields, name: str, *, value_range=(0.0, 1.0), phase: str = "upper",
-                   where: str = "", warn: bool = True, field_location: str | None = None) -> Indicator:
+def make_indicator(mesh: Mesh, fields, name: str, *, range=None, phase: str = "upper",
+                   where: str = "", warn: bool = True, field_location: str | None = None, **old) -> Indicator:
     """Build the indicator of one step.
 
     Parameters
@@ -239,8 +271,9 @@ def make_indicator(mesh: Mesh, fields, name: str, *, value_range=(0.0, 1.0), pha
         The step's fields (or any object with ``point_data`` and ``cell_data`` dicts).
     name : str
         The field to map.
-    value_range : tuple of float or str
-        Field values mapped to 0 and 1.
+    range : tuple of float or str, optional
+        Field values mapped to 0 and 1; default (0, 1). The old keyword
+        ``value_range`` still works, with an :class:`OldNameWarning`.
     phase : {'upper', 'lower'}
     where : str
         File and step, for messages.
@@ -259,8 +292,11 @@ def make_indicator(mesh: Mesh, fields, name: str, *, value_range=(0.0, 1.0), pha
     ------
     FieldNotFoundError
         No such field, or none at the location asked for.
+    OptionError
+        A keyword that is not an option (with the nearest name), or ``range``
+        given under both names.
     """
-    value_range = parse_range(value_range)
+    value_range = parse_range(_old_range_keyword(range, old, "make_indicator()"))
     phase = normalize_phase(phase)
     values, location = select_field(fields, name, where=where, location=field_location)
     copies = field_copies(fields, name)

@@ -40,6 +40,7 @@ def plot_campaign(table, *, parameter: str = "parameter", unit: str = ""):
         ax.plot(x, np.asarray(table[column], dtype=float), marker="o")
         ax.set_xlabel(xlabel)
         ax.set_title(label)
+        ax.set_ylabel(label)
     for ax in axes[len(shown):]:
         ax.set_visible(False)
     return figure

@@ -69,7 +69,12 @@ def write_compare_report(out, result, *, specs, overlays, inputs: list, version:
     """
     out = os.fspath(out)
     written = []
-    for name, frame in (("comparison.csv", result.comparison), ("pairs.csv", result.pairs),
+    pairs = result.pairs
+    if pairs is not None and {"step_a", "time_a"} <= set(pairs.columns) and "step" not in pairs.columns:
+        # pairs.csv starts step, time (the first run's) as every per-step table does
+        pairs = pairs.assign(step=pairs["step_a"], time=pairs["time_a"])
+        pairs = pairs[["step", "time", *[c for c in pairs.columns if c not in ("step", "time")]]]
+    for name, frame in (("comparison.csv", result.comparison), ("pairs.csv", pairs),
                         ("droplet_statistics.csv", result.droplet_statistics),
                         ("reference_checks.csv", result.reference_checks)):
         if frame is not None and len(frame):
@@ -105,10 +110,15 @@ def write_compare_report(out, result, *, specs, overlays, inputs: list, version:
     if result.droplet_statistics is not None and len(result.droplet_statistics):
         page.heading("Droplet statistics")
         stats = result.droplet_statistics
-        shown = [c for c in ("step", "time", "droplet_count_a", "droplet_count_b", "mean_equivalent_diameter_a",
-                             "mean_equivalent_diameter_b", "size_ks_pvalue", "size_ks_note") if c in stats]
-        page.table(stats[shown])
-        page.paragraph("_a is " + a + ", _b is " + b + "; every column is in droplet_statistics.csv.", "note")
+        # short headers and the size-test note below the table, so the table fits the page
+        short = {"step": "step", "time": "time", "droplet_count_a": "count_a", "droplet_count_b": "count_b",
+                 "mean_equivalent_diameter_a": "mean_diameter_a", "mean_equivalent_diameter_b": "mean_diameter_b",
+                 "size_ks_pvalue": "size_ks_pvalue"}
+        page.table(stats[[c for c in short if c in stats]].rename(columns=short))
+        notes = [n.rstrip(".") for n in dict.fromkeys(stats.get("size_ks_note", [])) if isinstance(n, str) and n]
+        page.paragraph("_a is " + a + ", _b is " + b + "; count is droplet_count, mean_diameter is "
+                       "mean_equivalent_diameter; every column is in droplet_statistics.csv."
+                       + (" Size test: " + "; ".join(notes) + "." if notes else ""), "note")
     page.paragraph("All columns are in comparison.csv; each run's own steps table is in steps_<label>.csv.", "note")
     page.paragraph(CAUTION, "note")
     atomic_write_text(os.path.join(out, "report.html"), page.render())

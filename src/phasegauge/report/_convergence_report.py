@@ -7,7 +7,7 @@ import time
 
 import numpy as np
 
-from ._canvas import new_figure
+from ._canvas import TIME_LABEL, new_figure
 from ._files import RUN_MARKER, atomic_save_figure, atomic_write_csv, atomic_write_json
 from ._measure_report import manifest as run_manifest
 
@@ -51,12 +51,12 @@ def plot_convergence(table, *, quantities=None, limit: int = 5):
         osc = rows["oscillatory"].to_numpy(dtype=bool)
         if osc.any():
             left.plot(t[osc], gci[osc], ls="none", marker="x", ms=7, color=line.get_color())
-    left.set_xlabel("time")
+    left.set_xlabel(TIME_LABEL)
     left.set_ylabel("fine-grid GCI (%)")
     if any(np.nanmin(100 * table.loc[table["quantity"] == q, "gci_fine"]) > 0 for q in quantities):
         left.set_yscale("log")
     left.set_title("Grid Convergence Index (x: oscillatory)")
-    right.set_xlabel("time")
+    right.set_xlabel(TIME_LABEL)
     right.set_ylabel("apparent order p")
     right.set_title("Apparent order")
     if quantities:

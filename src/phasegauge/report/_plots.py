@@ -30,7 +30,7 @@ def measure_figures(result, snapshots: dict | None = None) -> list:
         figures.append(("phase_volume_drift", "Phase-volume drift relative to the first step",
                         _plots_mixing.plot_phase_volume_drift(steps)))
     if _has(steps, "interface_width") and len(steps) > 1:
-        figures.append(("interface_width", "Interface width (5-95 %) in length units and in cells",
+        figures.append(("interface_width", "Interface width (5-95 %) in mesh units and in cells",
                         _plots_interface.plot_interface_width(steps)))
     if _has(steps, "coarsening_length") and len(steps) > 1:
         fit = next((f.figures for f in getattr(result, "findings", []) if f.kind == "coarsening"), None)
@@ -61,10 +61,19 @@ def measure_figures(result, snapshots: dict | None = None) -> list:
         weighting = "flow" if _has(profiles, "mixing_index_flow") else "area"
         figures.append(("mixing_profile", "Mixing index along the channel (cross sections)",
                         _plots_mixing.plot_mixing_profile(by_step, weighting=weighting,
-                                                          target=result.options.mixing_target)))
+                                                          target=result.options.mixing_target,
+                                                          axis_label=_position_label(result.options))))
     figures += _probe_figures(result)
     figures += _mixture_figures(result)
     return figures
+
+
+def _position_label(options) -> str:
+    """The x label of the mixing profile: the position along the section axis, in mesh units."""
+    from ._canvas import in_mesh_units
+
+    axis = getattr(options, "section_axis", None)
+    return in_mesh_units(f"position along {axis}" if axis else "position along the axis")
 
 
 def _mixture_figures(result) -> list:

@@ -11,7 +11,7 @@ from __future__ import annotations
 import numpy as np
 
 from ..errors import OptionError
-from ._canvas import legend_outside, new_figure
+from ._canvas import TIME_LABEL, in_mesh_units, legend_outside, new_figure, with_units
 
 __all__ = ["plot_interface_overlay", "plot_metric_curves", "plot_metric_differences",
            "plot_shape_history", "plot_reference_check"]
@@ -59,8 +59,8 @@ def plot_interface_overlay(mismatch, extent, segments_a, segments_b, *, labels=(
             ax.plot([], [], style, color=colour, label=f"{label} (no interface)")
     ax.set_xlim(x0, x1)
     ax.set_ylim(y0, y1)
-    ax.set_xlabel(axis_names[0])
-    ax.set_ylabel(axis_names[1])
+    ax.set_xlabel(in_mesh_units(axis_names[0]))
+    ax.set_ylabel(in_mesh_units(axis_names[1]))
     legend_outside(ax)
     heading = title or f"interfaces c = {level:g}"
     ax.set_title(heading + " (shaded: phases differ)", fontsize=10)
@@ -109,8 +109,8 @@ def plot_metric_curves(comparison, *, metrics=None, labels=("A", "B")):
         ax.plot(t, comparison[f"{name}_a"], "-o", ms=2.5, color="tab:blue", label=labels[0])
         ax.plot(t, comparison[f"{name}_b"], "--s", ms=2.5, color="tab:red", label=labels[1])
         ax.set_title(_words(name), fontsize=9)
-        ax.set_xlabel("time")
-        ax.set_ylabel(_words(name), fontsize=8)
+        ax.set_xlabel(TIME_LABEL)
+        ax.set_ylabel(with_units(_words(name), name), fontsize=8)
         legend_outside(ax)
     return fig
 
@@ -131,7 +131,7 @@ def plot_metric_differences(comparison, *, metrics=None, relative: bool = True):
         ax.plot(t, comparison[f"{name}{suffix}"], "-o", ms=2.5, color="tab:purple")
         ax.set_title(f"{_words(name)}: {'(A - B) / |B|' if relative else 'A - B'}", fontsize=9)
         ax.set_ylabel("relative difference" if relative else "difference", fontsize=8)
-        ax.set_xlabel("time")
+        ax.set_xlabel(TIME_LABEL)
     return fig
 
 
@@ -155,8 +155,8 @@ def plot_shape_history(shapes, *, columns=("mismatch_volume", "dice", "hausdorff
     for ax, name in zip(panels, cols):
         ax.plot(t, shapes[name], "-o", ms=2.5, color="tab:green")
         ax.set_title(_words(name), fontsize=9)
-        ax.set_xlabel("time")
-        ax.set_ylabel(_words(name), fontsize=8)
+        ax.set_xlabel(TIME_LABEL)
+        ax.set_ylabel(with_units(_words(name), name), fontsize=8)
     return fig
 
 
@@ -194,8 +194,8 @@ def plot_reference_check(run, checks, *, columns=None):
             else:
                 ax.axhspan(row["reference_low"], row["reference_high"], color=colour, alpha=0.15)
         ax.set_title(_words(col), fontsize=9)
-        ax.set_xlabel("time")
-        ax.set_ylabel(_words(col), fontsize=8)
+        ax.set_xlabel(TIME_LABEL)
+        ax.set_ylabel(with_units(_words(col), col), fontsize=8)
     return fig
 
 

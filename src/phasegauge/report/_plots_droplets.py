@@ -13,7 +13,7 @@ import pandas as pd
 from matplotlib.figure import Figure
 
 from ..errors import OptionError
-from ._canvas import legend_outside, new_figure
+from ._canvas import TIME_LABEL, legend_outside, new_figure, with_units
 
 __all__ = ["plot_droplet_count", "plot_size_distribution"]
 
@@ -66,7 +66,7 @@ def plot_droplet_count(table: pd.DataFrame, events: pd.DataFrame | None = None) 
             if chosen.any():
                 ax.scatter(events["time"].to_numpy(float)[chosen], at[chosen], color=colour, marker=marker,
                            zorder=3, label=f"{kind} ({int(chosen.sum())})")
-    ax.set_xlabel("time")
+    ax.set_xlabel(TIME_LABEL)
     ax.set_ylabel("droplet count")
     ax.yaxis.get_major_locator().set_params(integer=True)
     legend_outside(ax)
@@ -105,8 +105,8 @@ def plot_size_distribution(droplets: pd.DataFrame, *, column: str = "equivalent_
         ax.plot(stats.index, stats[0.5], color="tab:orange", lw=1.5, label="median")
         if size[ok].max() > 20 * size[ok].min():
             ax.set_yscale("log")
-    ax.set_xlabel("time")
-    ax.set_ylabel(column.replace("_", " "))
+    ax.set_xlabel(TIME_LABEL)
+    ax.set_ylabel(with_units(column.replace("_", " "), column))
     legend_outside(ax)
     ax.grid(alpha=0.3)
     return fig

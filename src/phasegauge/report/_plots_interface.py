@@ -9,7 +9,7 @@ from __future__ import annotations
 import numpy as np
 
 from ..errors import OptionError
-from ._canvas import legend_outside, new_figure
+from ._canvas import TIME_LABEL, in_mesh_units, legend_outside, new_figure
 
 __all__ = ["plot_interface_width", "plot_interface_snapshots", "plot_coarsening"]
 
@@ -54,7 +54,7 @@ def plot_interface_width(steps_df, *, time_column: str = "time", title: str | No
         if name in steps_df.columns:
             top.plot(t, steps_df[name].to_numpy(dtype=float), styles.get(name, "--"), label=label,
                      markersize=3)
-    top.set_ylabel("width (length)")
+    top.set_ylabel(in_mesh_units("interface width"))
     legend_outside(top)
     top.grid(alpha=0.3)
     if "interface_width_cells" in steps_df.columns:
@@ -63,7 +63,7 @@ def plot_interface_width(steps_df, *, time_column: str = "time", title: str | No
     bottom.axhline(4.0 * np.log(19.0) / np.log(9.0), color="0.5", linestyle=":",
                    label="4 cells across 0.1 < c < 0.9")
     bottom.set_ylabel("width (cells)")
-    bottom.set_xlabel(column or "step")
+    bottom.set_xlabel(TIME_LABEL if column == "time" else "step")
     legend_outside(bottom)
     bottom.grid(alpha=0.3)
     if title:
@@ -132,8 +132,8 @@ def plot_interface_snapshots(interfaces_by_step, *, bounds, axis_names=("x", "y"
         ax.set_xlim(lo[0], hi[0])
         ax.set_ylim(lo[1], hi[1])
         ax.set_aspect("equal")
-        ax.set_xlabel(axis_names[0])
-        ax.set_ylabel(axis_names[1])
+        ax.set_xlabel(in_mesh_units(axis_names[0]))
+        ax.set_ylabel(in_mesh_units(axis_names[1]))
         legend_outside(ax)
     else:
         from mpl_toolkits.mplot3d.art3d import Poly3DCollection
@@ -151,9 +151,9 @@ def plot_interface_snapshots(interfaces_by_step, *, bounds, axis_names=("x", "y"
             ax.set_xlim(lo[0], hi[0])
             ax.set_ylim(lo[1], hi[1])
             ax.set_zlim(lo[2], hi[2])
-            ax.set_xlabel(axis_names[0], fontsize="small")
-            ax.set_ylabel(axis_names[1], fontsize="small")
-            ax.set_zlabel(axis_names[2] if len(axis_names) > 2 else "z", fontsize="small")
+            ax.set_xlabel(in_mesh_units(axis_names[0]), fontsize="small")
+            ax.set_ylabel(in_mesh_units(axis_names[1]), fontsize="small")
+            ax.set_zlabel(in_mesh_units(axis_names[2] if len(axis_names) > 2 else "z"), fontsize="small")
             ax.set_title(label(step), fontsize="small")
     if title:
         fig.suptitle(title)
@@ -189,7 +189,7 @@ def plot_coarsening(steps_df, fit: dict | None = None):
         ax.loglog(tt, fit["prefactor"] * tt ** fit["exponent"], "-", label=label)
         ax.loglog(tt, fit["prefactor"] * tt[0] ** fit["exponent"] * (tt / tt[0]) ** (1 / 3), ":",
                   color="grey", label="n = 1/3 (Lifshitz-Slyozov)")
-    ax.set_xlabel("time")
-    ax.set_ylabel("characteristic length")
+    ax.set_xlabel(TIME_LABEL)
+    ax.set_ylabel(in_mesh_units("characteristic length"))
     ax.legend()
     return fig

@@ -11,7 +11,7 @@ import pandas as pd
 from matplotlib.figure import Figure
 
 from ..errors import OptionError
-from ._canvas import legend_outside, new_figure
+from ._canvas import TIME_LABEL, in_mesh_units, legend_outside, new_figure
 
 __all__ = ["plot_mixing_profile", "plot_phase_volume_drift", "plot_mixing_index"]
 
@@ -24,7 +24,7 @@ def _require(table: pd.DataFrame, columns, what: str) -> None:
 
 
 def plot_mixing_profile(profiles: dict, *, weighting: str = "flow", target: float | None = 0.9,
-                        axis_label: str = "position") -> Figure:
+                        axis_label: str = in_mesh_units("position along the axis")) -> Figure:
     """Mixing index against position along the channel, one curve per step or run.
 
     Parameters
@@ -76,7 +76,7 @@ def plot_mixing_profile(profiles: dict, *, weighting: str = "flow", target: floa
 
 def _time_axis(steps_df: pd.DataFrame):
     if "time" in steps_df:
-        return steps_df["time"].to_numpy(dtype=np.float64), "time"
+        return steps_df["time"].to_numpy(dtype=np.float64), TIME_LABEL
     return np.arange(len(steps_df)), "step"
 
 

@@ -8,7 +8,7 @@ from __future__ import annotations
 
 import numpy as np
 
-from ._canvas import new_figure
+from ._canvas import TIME_LABEL, new_figure
 
 __all__ = ["plot_compositions_on_diagram", "plot_equilibrium_gap", "plot_solute"]
 
@@ -43,7 +43,7 @@ def plot_compositions_on_diagram(steps, diagram: dict):
     ax.scatter(steps["mean_composition"].to_numpy(dtype=float), temperature, c=time, marker="x", s=26,
                label="mean composition", **norm)
     if shown is not None and len(time):
-        figure.colorbar(shown, ax=ax, label="time")
+        figure.colorbar(shown, ax=ax, label=TIME_LABEL)
     ax.set_xlim(0.0, 1.0)
     ax.set_ylim(float(np.min(t)), float(np.max(t)))
     ax.set_xlabel(f"mole fraction of {diagram.get('component', 'the component')}")
@@ -63,7 +63,7 @@ def plot_equilibrium_gap(steps, *, tolerance: float):
         ax.plot(time, steps["gibbs_thomson_shift"].to_numpy(dtype=float), "s--", label="Gibbs-Thomson shift")
     ax.axhline(tolerance, color="0.4", linestyle=":", label=f"tolerance {tolerance:g}")
     ax.set_yscale("log")
-    ax.set_xlabel("time")
+    ax.set_xlabel(TIME_LABEL)
     ax.set_ylabel("gap to the binodal (mole fraction)")
     ax.legend(loc="best", fontsize="small")
     return figure
@@ -86,7 +86,7 @@ def plot_solute(steps):
     right.plot(time, steps["partition_coefficient"].to_numpy(dtype=float), "s--", color="C3",
                label="partition coefficient")
     right.set_ylabel("partition coefficient K")
-    bottom.set_xlabel("time")
+    bottom.set_xlabel(TIME_LABEL)
     lines = bottom.get_lines() + right.get_lines()
     bottom.legend(lines, [line.get_label() for line in lines], loc="best", fontsize="small")
     return figure

@@ -191,7 +191,7 @@ def _read_pair(row, grids: dict, *, series, specs, spacing):
     for run, step in ((0, int(row.step_a)), (1, int(row.step_b))):
         spec = specs[run]
         s = series[run].read(step)
-        c = make_indicator(s.mesh, s.fields, spec.field, value_range=spec.value_range, phase=spec.phase,
+        c = make_indicator(s.mesh, s.fields, spec.field, range=spec.range, phase=spec.phase,
                            where=s.info.where, warn=False, field_location=spec.field_location)
         fields.append((s.mesh, c.point))
     (mesh_a, ca), (mesh_b, cb) = fields

@@ -178,7 +178,7 @@ def sample_tables(results, options) -> tuple:
     -------
     probes, lines : DataFrame or None
         The tables of probes.csv and lines.csv (None when the run has none).
-    measured_values : tuple (times (n_steps,), values (n_steps, n_positions)) or None
+    measured_values : tuple (times (n_steps,), values (n_steps, n_positions), step numbers (n_steps,)) or None
     """
     import pandas as pd
 
@@ -214,5 +214,5 @@ def sample_tables(results, options) -> tuple:
         lines = lines.sort_values("step", kind="stable", ignore_index=True)[list(LINE_COLUMNS)]
     measured = None
     if options.measured:
-        measured = (times, values[:, parts["measured"], 0][:, parts["measured_index"]])
+        measured = (times, values[:, parts["measured"], 0][:, parts["measured_index"]], steps)
     return probes, lines, measured

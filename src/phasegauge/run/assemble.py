@@ -308,7 +308,8 @@ def _sample_tables(done, options):
         return probes, lines, None, None
     from ..analysis.probes import validation_summary, validation_table
 
-    table = validation_table(options.measured, *measured)
+    times, simulated, steps = measured
+    table = validation_table(options.measured, times, simulated, steps=steps)
     return probes, lines, table, validation_summary(table)
 
 

@@ -21,7 +21,8 @@ from typing import TYPE_CHECKING
 
 import numpy as np
 
-from ..errors import OptionError, PhasegaugeWarning
+from ..errors import OldNameWarning, OptionError, PhasegaugeWarning
+from .options import accept_old_names
 
 if TYPE_CHECKING:  # pandas is imported where the tables are built
     import pandas as pd
@@ -29,18 +30,29 @@ if TYPE_CHECKING:  # pandas is imported where the tables are built
 __all__ = ["RunSpec", "CompareResult", "compare_runs", "compare_arguments"]
 
 
+@accept_old_names
 @dataclass(frozen=True)
 class RunSpec:
-    """One run of a comparison: where it is and how its field maps to the indicator."""
+    """One run of a comparison: where it is and how its field maps to the indicator.
+
+    The options have the names of :class:`~phasegauge.run.options.MeasureOptions` (``range``; the
+    old keyword ``value_range`` still works, with an :class:`~phasegauge.errors.OldNameWarning`).
+    """
 
     path: str
     field: str
-    value_range: tuple = (0.0, 1.0)
+    range: tuple = (0.0, 1.0)
     phase: str = "upper"
     velocity: str | None = None
     label: str = ""
     field_location: str = "auto"  # which copy of a field written on cells and on points (auto: cells)
     sort_by_time: bool = False  # order the steps by the times in their files
+
+    @property
+    def value_range(self) -> tuple:
+        """The old name of :attr:`range` (with an :class:`OldNameWarning`)."""
+        warnings.warn(OldNameWarning("'value_range' is the old name of 'range'"), stacklevel=2)
+        return self.range
 
 
 @dataclass
@@ -139,7 +151,7 @@ def _compare_runs(first, second, *, out, overwrite, level, time_tolerance, spaci
     plan = plan_sampling(*both, spacing=spacing, time_tolerance=time_tolerance)  # (closes them)
     runs = []
     for k, spec in enumerate((first, second)):
-        options = MeasureOptions(field=spec.field, range=spec.value_range, phase=spec.phase, level=level,
+        options = MeasureOptions(field=spec.field, range=spec.range, phase=spec.phase, level=level,
                                  velocity=spec.velocity, field_location=spec.field_location,
                                  sort_by_time=spec.sort_by_time)
         res = measure(spec.path, options=plan.options(options, k), workers=workers, progress=progress, snapshots=0,
@@ -229,7 +241,7 @@ def compare_arguments(recipe: dict) -> dict:
 
     def spec(table):
         t = recipe[table]
-        return RunSpec(path=t["path"], field=t["field"], value_range=parse_range(t.get("range", (0, 1))),
+        return RunSpec(path=t["path"], field=t["field"], range=parse_range(t.get("range", (0, 1))),
                        phase=t.get("phase", "upper"), velocity=t.get("velocity"), label=t.get("label", table),
                        field_location=t.get("field_location", "auto"), sort_by_time=t.get("sort_by_time", False))
 

@@ -127,7 +127,9 @@ class MeasureOptions:
     diffusivity : float or None
         Physical diffusivity or mobility to compare the numerical one with.
     box : tuple or None
-        ``((xmin, xmax), (ymin, ymax), (zmin, zmax))`` region for mixing figures.
+        ``((xmin, xmax), (ymin, ymax)[, (zmin, zmax)])`` region for mixing figures; a z pair
+        that bounds nothing (both ends infinite or beyond 1e300) is dropped, so a 2D box
+        reads the same however it is given.
     section_axis : str or None
         Axis of the cross-section profiles (``'x'``...); None for none.
     section_count : int
@@ -300,9 +302,11 @@ class MeasureOptions:
             set_(self, "free_energy", _free_energy_model(self.free_energy))
         if self.box is not None:
             box = tuple(tuple(float(v) for v in pair) for pair in self.box)
-            if any(len(p) != 2 or p[0] >= p[1] for p in box):
-                raise OptionError(f"box must be (lo, hi) pairs per axis, found {self.box}",
-                                  fix="for example ((0, 1), (0, 0.5), (-1, 1))")
+            if len(box) not in (2, 3) or any(len(p) != 2 or p[0] >= p[1] for p in box):
+                raise OptionError(f"box must be 2 or 3 (lo, hi) pairs, one per axis, found {self.box}",
+                                  fix="for example ((0, 1), (0, 0.5)) in 2D or ((0, 1), (0, 0.5), (-1, 1)) in 3D")
+            if len(box) == 3 and box[2][0] <= -1e300 and box[2][1] >= 1e300:
+                box = box[:2]  # an unbounded z: the same box as the two pairs
             set_(self, "box", box)
         from ._mixture import normalize_mixture
 

@@ -166,7 +166,7 @@ def analyse_step(step, options, *, contour_dir: str | None = None, reported_mesh
 
     step, flat = flatten_step(step, options)
     mesh = step.mesh
-    ind = make_indicator(mesh, step.fields, options.field, value_range=options.range,
+    ind = make_indicator(mesh, step.fields, options.field, range=options.range,
                          phase=options.phase, where=step.info.where, field_location=options.field_location)
     if ind.nonfinite == ind.cell.size or not np.isfinite(ind.cell).any():
         raise InputError(f"field '{options.field}' has no finite values (all NaN or Inf)", where=step.info.where,
@@ -254,7 +254,7 @@ def _equilibrium(step, mesh, ind, options, interface_size) -> dict:
     """Chemical potential spread, free energy and tension of the field in the model's own variable."""
     from ..analysis.thermo import equilibrium_metrics
 
-    lo, hi = ind.value_range
+    lo, hi = ind.range
     c = ind.cell if ind.phase == "upper" else 1.0 - ind.cell
     field = lo + (hi - lo) * c  # the field as written (the indicator maps lo -> 0, hi -> 1)
     temperature = None
