@@ -420,7 +420,7 @@ def mesh_and_fields(raw, where: str, pool=None) -> tuple[Mesh, StepFields]:
     """
     _check_raw_cells(raw, where)
     try:
-        candidate = Mesh(raw.points, raw.cells)
+        candidate = Mesh(raw.points, raw.cells, pieces=getattr(raw, "cell_pieces", None))
     except UnsupportedMeshError as err:
         raise err.with_where(where) from None
     mesh = None if pool is None else pool.match(candidate)
@@ -514,7 +514,7 @@ def _checked_mesh(mesh: Mesh, raw, where: str) -> Mesh:
     blocks = [(b.type, inverse[np.asarray(b.data, dtype=np.int64)]) for b in raw.cells]
     points = np.zeros((n_unique, 3))
     points[inverse] = mesh.points
-    merged = Mesh(points, blocks, point_merge=inverse)
+    merged = Mesh(points, blocks, point_merge=inverse, pieces=getattr(raw, "cell_pieces", None))
     warnings.warn(MeshWarning(f"{mesh.n_points - n_unique} duplicate points merged (cells share their corners "
                               "now); point fields are averaged over the copies", where=where), stacklevel=3)
     return merged

@@ -13,7 +13,9 @@ reader (through pyvista, as the structured datasets are) and handed over as a me
   (tetrahedra and every other cell are kept as they are);
 * the added centres become points; point fields there are the mean of the corners' values;
 * every tetrahedron keeps the cell values of the cell it comes from, so integrals of cell
-  data are unchanged.
+  data are unchanged, and is marked as a piece of it (``raw.cell_pieces``, which the mesh
+  keeps as :attr:`Mesh.cell_parents`): cell sizes, and the widths and resolutions measured in
+  cells, are those of the whole cells.
 
 The read is noted as ``raw.convex_point_sets`` (how cells were read; ``inspect`` shows it).
 """
@@ -29,7 +31,7 @@ import warnings
 import numpy as np
 
 from ..errors import MeshWarning, UnreadableFileError, UnsupportedMeshError, short_text
-from ._meshio_adapter import CONVEX_POINT_SET, convex_point_sets, ensure_vtk_extras, new_mesh
+from ._meshio_adapter import CONVEX_POINT_SET, convex_point_sets, ensure_vtk_extras, new_mesh, read_with_meshio
 
 __all__ = ["xml_holds_polyhedra", "legacy_holds_polyhedra", "read_polyhedral"]
 
@@ -148,22 +150,20 @@ def read_polyhedral(path: str):
                 continue
             blocks.append((name, cells))
             rows_of.append(rows)
-    if streams:
-        face_points, face_offsets, face_cell, rows = _join_streams(streams)
-        split = split_polyhedra(points, face_points, face_offsets, face_cell, rows.size, where=path)
-        if split.inverted_tetra:
-            warnings.warn(MeshWarning(f"{split.inverted_tetra} tetrahedra of the polyhedra's split have negative "
-                                      "volume (cells not star-shaped from their corner mean); volumes are summed "
-                                      "with their signs", where=path), stacklevel=3)
-        blocks.append(("tetra", split.tetra))
-        rows_of.append(rows[split.source])
-        n_split = int(rows.size)
-    else:  # pragma: no cover - called only for files with polyhedra
-        split = None
+    if not any(types == VTK_POLYHEDRON):  # face arrays named, but no polyhedron among the cells
+        return read_with_meshio(path, "vtu" if path.lower().endswith(".vtu") else "vtk")
+    face_points, face_offsets, face_cell, rows = _join_streams(streams)
+    split = split_polyhedra(points, face_points, face_offsets, face_cell, rows.size, where=path)
+    if split.inverted_tetra:
+        warnings.warn(MeshWarning(f"{split.inverted_tetra} tetrahedra of the polyhedra's split have negative "
+                                  "volume (cells not star-shaped from their corner mean)", where=path), stacklevel=3)
+    blocks.append(("tetra", split.tetra))
+    rows_of.append(rows[split.source])
+    n_split = int(rows.size)
     point_data = {name: np.asarray(grid.point_data[name]) for name in grid.point_data.keys()}
     cell_data = {name: np.asarray(grid.cell_data[name]) for name in grid.cell_data.keys()}
     field_data = {name: np.asarray(grid.field_data[name]) for name in grid.field_data.keys()}
-    if split is not None and split.n_centres:
+    if split.n_centres:
         for name, values in list(point_data.items()):
             if np.issubdtype(values.dtype, np.number):
                 point_data[name] = np.concatenate([values.astype(np.float64), split.centre_values(values)])
@@ -175,7 +175,9 @@ def read_polyhedral(path: str):
     raw = new_mesh(points, blocks, point_data=point_data, cell_data=cell_data, field_data=field_data)
     note = None
     if any(isinstance(name, type(CONVEX_POINT_SET)) for name, _ in blocks):
-        note = convex_point_sets(raw).convex_point_sets
+        note = convex_point_sets(raw).convex_point_sets  # the split's block stays the last
+    # the split cells' tetrahedra are pieces of them (cell sizes are the whole cells')
+    raw.cell_pieces = [None] * (len(raw.cells) - 1) + [split.source]
     n_poly = int(np.count_nonzero(types == VTK_POLYHEDRON))
     words = f"{n_poly} polyhedral cells (VTK 42)"
     others = n_split - n_poly
