@@ -418,6 +418,8 @@ def mesh_and_fields(raw, where: str, pool=None) -> tuple[Mesh, StepFields]:
     share their corners (:class:`MeshWarning`). The caller keeps the mesh in
     its pool.
     """
+    if hasattr(raw, "use_pool"):  # polyhedra (io/_polyhedra.py): split once per mesh of the pool
+        raw.use_pool(pool)
     _check_raw_cells(raw, where)
     try:
         candidate = Mesh(raw.points, raw.cells, pieces=getattr(raw, "cell_pieces", None))
@@ -431,6 +433,8 @@ def mesh_and_fields(raw, where: str, pool=None) -> tuple[Mesh, StepFields]:
     note = getattr(raw, "convex_point_sets", None)
     if note:
         mesh.memo("convex_point_sets", lambda: note)
+    if hasattr(raw, "keep_split"):
+        raw.keep_split(mesh)
     return mesh, step_fields(mesh, raw, where)
 
 

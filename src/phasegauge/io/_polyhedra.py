@@ -18,22 +18,26 @@ reader (through pyvista, as the structured datasets are) and handed over as a me
   cells, are those of the whole cells.
 
 The read is noted as ``raw.convex_point_sets`` (how cells were read; ``inspect`` shows it).
+The split depends on the points and faces only: :class:`PolyhedralRead` takes it from a mesh
+of the series' :class:`MeshPool` built from the same ones, so a series splits its mesh once.
 """
 
 from __future__ import annotations
 
 import contextlib
+import hashlib
 import io
 import mmap
 import re
 import warnings
+from functools import cached_property
 
 import numpy as np
 
 from ..errors import MeshWarning, UnreadableFileError, UnsupportedMeshError, short_text
 from ._meshio_adapter import CONVEX_POINT_SET, convex_point_sets, ensure_vtk_extras, new_mesh, read_with_meshio
 
-__all__ = ["xml_holds_polyhedra", "legacy_holds_polyhedra", "read_polyhedral"]
+__all__ = ["xml_holds_polyhedra", "legacy_holds_polyhedra", "read_polyhedral", "PolyhedralRead"]
 
 #: VTK cell type of a polyhedron
 VTK_POLYHEDRON = 42
@@ -120,7 +124,7 @@ def read_polyhedral(path: str):
     import meshio._vtk_common as vtk_common
 
     from ..model.cells import LINEAR_CORNERS
-    from ..model.polyhedra import cell_face_stream, split_polyhedra
+    from ..model.polyhedra import cell_face_stream
 
     ensure_vtk_extras()
     grid = _read_grid(path)
@@ -152,40 +156,100 @@ def read_polyhedral(path: str):
             rows_of.append(rows)
     if not any(types == VTK_POLYHEDRON):  # face arrays named, but no polyhedron among the cells
         return read_with_meshio(path, "vtu" if path.lower().endswith(".vtu") else "vtk")
-    face_points, face_offsets, face_cell, rows = _join_streams(streams)
-    split = split_polyhedra(points, face_points, face_offsets, face_cell, rows.size, where=path)
-    if split.inverted_tetra:
-        warnings.warn(MeshWarning(f"{split.inverted_tetra} tetrahedra of the polyhedra's split have negative "
-                                  "volume (cells not star-shaped from their corner mean)", where=path), stacklevel=3)
-    blocks.append(("tetra", split.tetra))
-    rows_of.append(rows[split.source])
-    n_split = int(rows.size)
     point_data = {name: np.asarray(grid.point_data[name]) for name in grid.point_data.keys()}
     cell_data = {name: np.asarray(grid.cell_data[name]) for name in grid.cell_data.keys()}
     field_data = {name: np.asarray(grid.field_data[name]) for name in grid.field_data.keys()}
-    if split.n_centres:
-        for name, values in list(point_data.items()):
-            if np.issubdtype(values.dtype, np.number):
-                point_data[name] = np.concatenate([values.astype(np.float64), split.centre_values(values)])
-            else:
-                del point_data[name]
-        points = np.concatenate([points, split.centre_values(points)])
-    cell_data = {name: [values[rows] for rows in rows_of] for name, values in cell_data.items()
-                 if np.issubdtype(values.dtype, np.number)}
-    raw = new_mesh(points, blocks, point_data=point_data, cell_data=cell_data, field_data=field_data)
-    note = None
-    if any(isinstance(name, type(CONVEX_POINT_SET)) for name, _ in blocks):
-        note = convex_point_sets(raw).convex_point_sets  # the split's block stays the last
-    # the split cells' tetrahedra are pieces of them (cell sizes are the whole cells')
-    raw.cell_pieces = [None] * (len(raw.cells) - 1) + [split.source]
-    n_poly = int(np.count_nonzero(types == VTK_POLYHEDRON))
-    words = f"{n_poly} polyhedral cells (VTK 42)"
-    others = n_split - n_poly
-    if others:
-        words += f" and the {others} hexahedra, wedges and pyramids beside them"
-    words += f" read as {len(split.tetra)} tetrahedra about their face and cell centres"
-    raw.convex_point_sets = words if not note else f"{words}; {note}"
-    return raw
+    return PolyhedralRead(path, points, blocks, rows_of, _join_streams(streams), point_data, cell_data, field_data,
+                          int(np.count_nonzero(types == VTK_POLYHEDRON)))
+
+
+class PolyhedralRead:
+    """A file with polyhedra as read, before and after the split (a meshio-style mesh).
+
+    The split (:func:`phasegauge.model.polyhedra.split_polyhedra`) is made on first use of the
+    mesh's attributes (``points``, ``cells``, ``point_data``, ``cell_data``, ...), or taken from
+    a kept mesh of a :class:`MeshPool` that was built from the same points and faces
+    (:meth:`use_pool`; :meth:`keep_split` keeps it with the mesh): a series whose mesh stays
+    the same splits it once.
+    """
+
+    _KEY = "polyhedra_split"
+
+    def __init__(self, path, points, blocks, rows_of, stream, point_data, cell_data, field_data, n_poly):
+        self.path, self._points, self._blocks, self._rows_of = path, points, blocks, rows_of
+        self._stream, self._point_data, self._cell_data = stream, point_data, cell_data
+        self.field_data, self.n_poly = field_data, n_poly
+        self._split = None
+
+    @cached_property
+    def signature(self) -> str:
+        """Hash of the points and the split cells' faces: equal signatures split alike."""
+        h = hashlib.sha256()
+        h.update(np.ascontiguousarray(self._points))
+        for array in self._stream:
+            h.update(np.ascontiguousarray(array))
+        return h.hexdigest()[:32]
+
+    def use_pool(self, pool) -> None:
+        """Take the split of a kept mesh of ``pool`` built from the same points and faces."""
+        for mesh in pool or ():
+            kept = mesh.memo(self._KEY, lambda: None, keep=False)
+            if kept is not None and kept[0] == self.signature:
+                self._split = kept[1]
+                return
+
+    def keep_split(self, mesh) -> None:
+        """Keep the split with ``mesh`` (for the next steps of a series)."""
+        mesh.memo(self._KEY, lambda: (self.signature, self.split))
+
+    @property
+    def split(self):
+        from ..model.polyhedra import split_polyhedra
+
+        if self._split is None:
+            face_points, face_offsets, face_cell, rows = self._stream
+            self._split = split_polyhedra(self._points, face_points, face_offsets, face_cell, rows.size,
+                                          where=self.path)
+        return self._split
+
+    def __getattr__(self, name):
+        if name.startswith("_"):
+            raise AttributeError(name)
+        return getattr(self._raw, name)
+
+    @cached_property
+    def _raw(self):
+        split, path = self.split, self.path
+        if split.inverted_tetra:
+            warnings.warn(MeshWarning(f"{split.inverted_tetra} tetrahedra of the polyhedra's split have negative "
+                                      "volume (cells not star-shaped from their corner mean)", where=path),
+                          stacklevel=3)
+        rows = self._stream[3]
+        blocks = self._blocks + [("tetra", split.tetra)]
+        rows_of = self._rows_of + [rows[split.source]]
+        point_data, points = dict(self._point_data), self._points
+        if split.n_centres:
+            for name, values in list(point_data.items()):
+                if np.issubdtype(values.dtype, np.number):
+                    point_data[name] = np.concatenate([values.astype(np.float64), split.centre_values(values)])
+                else:
+                    del point_data[name]
+            points = np.concatenate([points, split.centre_values(points)])
+        cell_data = {name: [values[r] for r in rows_of] for name, values in self._cell_data.items()
+                     if np.issubdtype(values.dtype, np.number)}
+        raw = new_mesh(points, blocks, point_data=point_data, cell_data=cell_data, field_data=self.field_data)
+        note = None
+        if any(isinstance(name, type(CONVEX_POINT_SET)) for name, _ in blocks):
+            note = convex_point_sets(raw).convex_point_sets  # the split's block stays the last
+        # the split cells' tetrahedra are pieces of them (cell sizes are the whole cells')
+        raw.cell_pieces = [None] * (len(raw.cells) - 1) + [split.source]
+        words = f"{self.n_poly} polyhedral cells (VTK 42)"
+        others = int(rows.size) - self.n_poly
+        if others:
+            words += f" and the {others} hexahedra, wedges and pyramids beside them"
+        words += f" read as {len(split.tetra)} tetrahedra about their face and cell centres"
+        raw.convex_point_sets = words if not note else f"{words}; {note}"
+        return raw
 
 
 def _join_streams(streams: list):

@@ -234,24 +234,26 @@ def split_polyhedra(points: np.ndarray, face_points, face_offsets, face_cell, n_
 
     # tetrahedra: each face triangle joined to the cell centre; a face listed with an outward
     # normal gives (b, a, c, centre) a positive volume
-    tetra, source = [], []
     triangles = np.flatnonzero(sizes == 3)
-    if triangles.size:
-        p = face_offsets[triangles]
-        tetra.append(np.stack([face_points[p + 1], face_points[p], face_points[p + 2],
-                               cell_centre[face_cell[triangles]]], axis=1))
-        source.append(face_cell[triangles])
     centred = sizes >= 4
     corner = np.flatnonzero(np.repeat(centred, sizes))  # stream positions of the centred faces' corners
+    tetra = np.empty((triangles.size + corner.size, 4), dtype=np.int64)
+    source = np.empty(tetra.shape[0], dtype=np.int64)
+    if triangles.size:
+        p = face_offsets[triangles]
+        part = tetra[:triangles.size]
+        part[:, 0], part[:, 1], part[:, 2] = face_points[p + 1], face_points[p], face_points[p + 2]
+        source[:triangles.size] = face_cell[triangles]
+        part[:, 3] = cell_centre[source[:triangles.size]]
     if corner.size:
         face_of = np.repeat(np.arange(sizes.size), sizes)[corner]
-        tetra.append(np.stack([face_points[nxt[corner]], face_points[corner], face_centre[face_of],
-                               cell_centre[face_cell[face_of]]], axis=1))
-        source.append(face_cell[face_of])
-    tetra = np.concatenate(tetra) if tetra else np.zeros((0, 4), dtype=np.int64)
-    source = np.concatenate(source) if source else np.zeros(0, dtype=np.int64)
-    keep = np.argsort(source, kind="stable")
-    tetra, source = tetra[keep], source[keep]
+        part = tetra[triangles.size:]
+        part[:, 0], part[:, 1], part[:, 2] = face_points[nxt[corner]], face_points[corner], face_centre[face_of]
+        source[triangles.size:] = face_cell[face_of]
+        part[:, 3] = cell_centre[source[triangles.size:]]
+    if source.size and np.any(source[1:] < source[:-1]):  # faces of several sizes: cell by cell again
+        keep = np.argsort(source, kind="stable")
+        tetra, source = tetra[keep], source[keep]
 
     split = PolyhedraSplit(tetra, source, centre_points, centre_offsets, n_points, n_face_centres)
     Y = np.concatenate([X, split.centre_values(X)])
@@ -268,6 +270,15 @@ def split_polyhedra(points: np.ndarray, face_points, face_offsets, face_cell, n_
 
 
 def _signed_volumes(Y: np.ndarray, tetra: np.ndarray) -> np.ndarray:
-    a = Y[tetra[:, 0]]
-    e1, e2, e3 = Y[tetra[:, 1]] - a, Y[tetra[:, 2]] - a, Y[tetra[:, 3]] - a
-    return np.einsum("ni,ni->n", e1, np.cross(e2, e3)) / 6.0
+    """Signed volumes of the tetrahedra, coordinate column by column (small temporaries)."""
+    columns = [np.ascontiguousarray(Y[:, i]) for i in range(3)]
+    out = np.empty(tetra.shape[0])
+    chunk = 1 << 16
+    for lo in range(0, tetra.shape[0], chunk):
+        t = tetra[lo:lo + chunk]
+        a = [x[t[:, 0]] for x in columns]
+        e = [[x[t[:, j]] - a[i] for i, x in enumerate(columns)] for j in (1, 2, 3)]
+        out[lo:lo + chunk] = (e[0][0] * (e[1][1] * e[2][2] - e[1][2] * e[2][1])
+                              - e[0][1] * (e[1][0] * e[2][2] - e[1][2] * e[2][0])
+                              + e[0][2] * (e[1][0] * e[2][1] - e[1][1] * e[2][0])) / 6.0
+    return out
