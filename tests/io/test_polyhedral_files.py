@@ -178,7 +178,7 @@ def test_bad_polyhedra_are_refused_naming_the_file(tmp_path, damage, match):
     stream = []
     for c, row in enumerate(m.blocks[0].connectivity):
         faces = [list(row[list(f)]) for f in FACES["hexahedron"]]
-        if c == 1 and damage == "open":
+        if c == 1 and damage == "open":  # the second cell of the file
             faces = faces[:-1]
         if c == 1 and damage == "turned":
             faces[0] = faces[0][::-1]
@@ -190,3 +190,4 @@ def test_bad_polyhedra_are_refused_naming_the_file(tmp_path, damage, match):
         Series(path).read(0)
     text = str(err.value)
     assert "bad.vtu" in text and "closed surface" in text and "\n" not in text
+    assert "the first: cell 1)" in text  # the file's cell number

@@ -70,7 +70,7 @@ def legacy_holds_polyhedra(path: str) -> bool:
         with view:
             if b"UNSTRUCTURED_GRID" not in view[:1024].upper():
                 return False
-            match = re.search(rb"\nCELL_TYPES\s+(\d+)\s*\n", view)
+            match = re.search(rb"\nCELL_TYPES[ \t]+(\d+)[ \t\r]*\n", view)
             if match is None:
                 return False
             count = int(match.group(1))
@@ -209,7 +209,7 @@ class PolyhedralRead:
         if self._split is None:
             face_points, face_offsets, face_cell, rows = self._stream
             self._split = split_polyhedra(self._points, face_points, face_offsets, face_cell, rows.size,
-                                          where=self.path)
+                                          where=self.path, cell_ids=rows)
         return self._split
 
     def __getattr__(self, name):

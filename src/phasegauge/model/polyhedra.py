@@ -119,7 +119,7 @@ def _refuse(what: str, where: str) -> UnsupportedMeshError:
     return UnsupportedMeshError(what, where=where, fix=_FIX_FACES)
 
 
-def _check_faces(n_points: int, face_points, face_offsets, face_cell, n_cells: int, where: str) -> np.ndarray:
+def _check_faces(n_points: int, face_points, face_offsets, face_cell, n_cells: int, where: str, ids) -> np.ndarray:
     """Check the face stream; returns the face sizes."""
     sizes = np.diff(face_offsets)
     if face_offsets[0] != 0 or face_offsets[-1] != face_points.size or np.any(sizes < 0):
@@ -127,13 +127,13 @@ def _check_faces(n_points: int, face_points, face_offsets, face_cell, n_cells: i
     small = np.flatnonzero(sizes < 3)
     if small.size:
         raise _refuse(f"{small.size} polyhedron faces have fewer than 3 corners "
-                      f"(the first: cell {int(face_cell[small[0]])})", where)
+                      f"(the first: cell {int(ids[face_cell[small[0]]])})", where)
     if face_points.size and (face_points.min() < 0 or face_points.max() >= n_points):
         raise _refuse(f"polyhedron faces refer to points outside 0..{n_points - 1}", where)
     per_cell = np.bincount(face_cell, minlength=n_cells)
     few = np.flatnonzero(per_cell < 4)
     if few.size:
-        raise _refuse(f"{few.size} polyhedra have fewer than 4 faces (the first: cell {int(few[0])} "
+        raise _refuse(f"{few.size} polyhedra have fewer than 4 faces (the first: cell {int(ids[few[0]])} "
                       f"with {int(per_cell[few[0]])})", where)
     return sizes
 
@@ -145,7 +145,7 @@ def _next_corners(face_offsets: np.ndarray, sizes: np.ndarray) -> np.ndarray:
     return nxt
 
 
-def _check_closed(face_points, nxt, edge_cell, where: str) -> None:
+def _check_closed(face_points, nxt, edge_cell, where: str, ids) -> None:
     """Every edge of a cell used by two of its faces, once in each direction."""
     a, b = face_points, face_points[nxt]
     lo, hi = np.minimum(a, b), np.maximum(a, b)
@@ -153,7 +153,7 @@ def _check_closed(face_points, nxt, edge_cell, where: str) -> None:
     counts = np.diff(starts, append=order.size)
     bad = counts != 2
     if bad.any():
-        first = int(edge_cell[order[starts[np.flatnonzero(bad)[0]]]])
+        first = int(ids[edge_cell[order[starts[np.flatnonzero(bad)[0]]]]])
         n_bad = int(np.unique(edge_cell[order[starts[bad]]]).size)
         raise _refuse(f"{n_bad} polyhedra are not closed: an edge is used by {int(counts[bad][0])} of the cell's "
                       f"faces instead of 2 (the first: cell {first})", where)
@@ -162,11 +162,11 @@ def _check_closed(face_points, nxt, edge_cell, where: str) -> None:
     if same.any():
         cells = edge_cell[order[starts[same]]]
         raise _refuse(f"{int(np.unique(cells).size)} polyhedra list their faces with inconsistent orientations "
-                      f"(an edge runs the same way in both of its faces; the first: cell {int(cells[0])})", where)
+                      f"(an edge runs the same way in both of its faces; the first: cell {int(ids[cells[0]])})", where)
 
 
 def split_polyhedra(points: np.ndarray, face_points, face_offsets, face_cell, n_cells: int, *,
-                    where: str = "") -> PolyhedraSplit:
+                    where: str = "", cell_ids=None) -> PolyhedraSplit:
     """Split polyhedral cells into tetrahedra about their face and cell centres.
 
     Parameters
@@ -184,6 +184,8 @@ def split_polyhedra(points: np.ndarray, face_points, face_offsets, face_cell, n_
         Number of cells.
     where : str
         The file, for the error message.
+    cell_ids : ndarray of shape (n_cells,), optional
+        The cells' numbers in the file, for the error message (default 0 to ``n_cells - 1``).
 
     Returns
     -------
@@ -205,10 +207,11 @@ def split_polyhedra(points: np.ndarray, face_points, face_offsets, face_cell, n_
     face_offsets = np.asarray(face_offsets, dtype=np.int64)
     face_cell = np.asarray(face_cell, dtype=np.int64)
     n_points = X.shape[0]
-    sizes = _check_faces(n_points, face_points, face_offsets, face_cell, n_cells, where)
+    ids = np.arange(n_cells) if cell_ids is None else np.asarray(cell_ids)
+    sizes = _check_faces(n_points, face_points, face_offsets, face_cell, n_cells, where, ids)
     nxt = _next_corners(face_offsets, sizes)
     edge_cell = np.repeat(face_cell, sizes)
-    _check_closed(face_points, nxt, edge_cell, where)
+    _check_closed(face_points, nxt, edge_cell, where, ids)
 
     # face centres: one per distinct face of four or more corners
     centre_parts, centre_counts, face_centre = [], [], np.full(sizes.size, -1, dtype=np.int64)
