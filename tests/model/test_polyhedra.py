@@ -130,3 +130,17 @@ def test_bad_face_lists_are_refused(change, match):
     with pytest.raises(UnsupportedMeshError, match=match) as err:
         split_polyhedra(points, *_stream([change(list(faces))]), 1, where="cells.vtu")
     assert "cells.vtu" in str(err.value) and "closed surface" in str(err.value)
+
+
+def test_cell_not_star_shaped_from_its_centre_keeps_its_signed_volume():
+    # a thin L-shaped prism (concave): its corner mean lies outside it, so some tetrahedra about
+    # it are inverted; their signed volumes still add up to the prism's (area of the L x height)
+    L = [(0, 0), (4, 0), (4, 0.2), (0.2, 0.2), (0.2, 4), (0, 4)]
+    area = 4 * 0.2 + 0.2 * 3.8
+    points = np.array([(x, y, 0.0) for x, y in L] + [(x, y, 1.0) for x, y in L])
+    faces = [tuple(range(5, -1, -1)), tuple(range(6, 12))] + [(i, (i + 1) % 6, 6 + (i + 1) % 6, 6 + i)
+                                                               for i in range(6)]
+    split = split_polyhedra(points, *_stream([faces]), 1)
+    assert split.inverted_tetra > 0
+    volume, _ = _volumes(points, split)
+    assert volume[0] == pytest.approx(area, rel=1e-13)  # elementary geometry
