@@ -103,12 +103,28 @@ def _read_grid(path: str):
     return grid
 
 
-def _polyhedron_faces(grid, cells: np.ndarray):
-    """Face stream of the polyhedra ``cells``: corners, offsets and the polyhedron (0..) of each face."""
-    face_conn = np.asarray(grid.polyhedron_face_connectivity, dtype=np.int64)
-    face_offs = np.asarray(grid.polyhedron_face_offsets, dtype=np.int64)
-    loc_conn = np.asarray(grid.polyhedron_face_location_connectivity, dtype=np.int64)
-    loc_offs = np.asarray(grid.polyhedron_face_location_offsets, dtype=np.int64)
+def _cell_array(cell_array) -> tuple[np.ndarray, np.ndarray]:
+    """Connectivity and offsets (int64) of a vtkCellArray."""
+    from vtkmodules.util.numpy_support import vtk_to_numpy
+
+    return (vtk_to_numpy(cell_array.GetConnectivityArray()).astype(np.int64, copy=False),
+            vtk_to_numpy(cell_array.GetOffsetsArray()).astype(np.int64, copy=False))
+
+
+def _polyhedron_faces(grid, cells: np.ndarray, path: str = ""):
+    """Face stream of the polyhedra ``cells``: corners, offsets and the polyhedron (0..) of each face.
+
+    Read from VTK's face arrays of VTK 9.4 and later (``GetPolyhedronFaces``,
+    ``GetPolyhedronFaceLocations``, whatever the file's format version).
+    """
+    if not hasattr(grid, "GetPolyhedronFaceLocations"):
+        import vtkmodules
+
+        raise UnreadableFileError(f"reading polyhedra needs VTK 9.4 or later (found {vtkmodules.__version__})",
+                                  where=path, fix="install a newer VTK: pip install 'vtk>=9.4'")
+
+    face_conn, face_offs = _cell_array(grid.GetPolyhedronFaces())
+    loc_conn, loc_offs = _cell_array(grid.GetPolyhedronFaceLocations())
     per_cell = np.diff(loc_offs)[cells]
     first = loc_offs[cells]
     faces = np.repeat(first - np.concatenate([[0], np.cumsum(per_cell)[:-1]]), per_cell) + np.arange(per_cell.sum())
@@ -130,15 +146,14 @@ def read_polyhedral(path: str):
     grid = _read_grid(path)
     points = np.asarray(grid.points, dtype=np.float64)
     types = np.asarray(grid.celltypes, dtype=np.int64)
-    conn = np.asarray(grid.cell_connectivity, dtype=np.int64)
-    offs = np.asarray(grid.cell_offsets, dtype=np.int64)
+    conn, offs = _cell_array(grid.GetCells())
     sizes = np.diff(offs)
     blocks, rows_of = [], []  # kept cells: (meshio type, connectivity), input rows
     streams = []  # cells split with the polyhedra: (face points, face offsets, face cell), input rows
     for t in np.unique(types):
         rows_t = np.flatnonzero(types == t)
         if t == VTK_POLYHEDRON:
-            streams.append((_polyhedron_faces(grid, rows_t), rows_t))
+            streams.append((_polyhedron_faces(grid, rows_t, path), rows_t))
             continue
         name = vtk_common.vtk_to_meshio_type.get(int(t))
         if name is None:
