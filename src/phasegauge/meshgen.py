@@ -12,6 +12,8 @@ Cell kinds of :func:`grid_mesh`:
   (each hexahedron split in two prisms), ``pyramid`` (each hexahedron split
   into six pyramids about an added centre point), ``mixed`` (columns of
   hexahedra, wedges and pyramids, conforming).
+
+:func:`to_polyhedral_grid` writes the 3D cells of a mesh as VTK polyhedra (pyvista).
 """
 
 from __future__ import annotations
@@ -20,7 +22,7 @@ import numpy as np
 
 from .model.mesh import Mesh
 
-__all__ = ["grid_mesh", "delaunay_mesh", "to_meshio", "jitter_points"]
+__all__ = ["grid_mesh", "delaunay_mesh", "to_meshio", "jitter_points", "to_polyhedral_grid"]
 
 
 def _axes(shape, bounds):
@@ -185,3 +187,33 @@ def to_meshio(mesh: Mesh, point_data=None, cell_data=None, field_data=None):
         split[name] = [values[a:b] for a, b in zip(mesh.block_offsets[:-1], mesh.block_offsets[1:])]
     return meshio.Mesh(mesh.points, cells, point_data=point_data or {}, cell_data=split,
                        field_data=field_data or {})
+
+
+def to_polyhedral_grid(mesh: Mesh, *, point_data=None, cell_data=None, reverse: bool = False):
+    """A pyvista UnstructuredGrid with every 3D cell of ``mesh`` written as a VTK polyhedron (42).
+
+    Each cell's faces are listed in the order of :data:`phasegauge.model.cells.FACES` with
+    outward normals (inward with ``reverse``). Point and cell data (joined over the blocks)
+    are attached as given.
+    """
+    import pyvista
+
+    from .model.cells import FACES
+
+    parts = []
+    for block in mesh.blocks:
+        conn = block.connectivity
+        faces = FACES[block.cell_type]
+        columns = [np.full(len(block), sum(len(f) + 1 for f in faces) + 1), np.full(len(block), len(faces))]
+        for face in faces:
+            face = face[::-1] if reverse else face
+            columns.append(np.full(len(block), len(face)))
+            columns += [conn[:, i] for i in face]
+        parts.append(np.stack(columns, axis=1).ravel())
+    types = np.full(mesh.n_cells, pyvista.CellType.POLYHEDRON, dtype=np.uint8)
+    grid = pyvista.UnstructuredGrid(np.concatenate(parts).astype(np.int64), types, mesh.points)
+    for name, values in (point_data or {}).items():
+        grid.point_data[name] = values
+    for name, values in (cell_data or {}).items():
+        grid.cell_data[name] = values
+    return grid

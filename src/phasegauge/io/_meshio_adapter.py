@@ -418,9 +418,11 @@ def mesh_and_fields(raw, where: str, pool=None) -> tuple[Mesh, StepFields]:
     share their corners (:class:`MeshWarning`). The caller keeps the mesh in
     its pool.
     """
+    if hasattr(raw, "use_pool"):  # polyhedra (io/_polyhedra.py): split once per mesh of the pool
+        raw.use_pool(pool)
     _check_raw_cells(raw, where)
     try:
-        candidate = Mesh(raw.points, raw.cells)
+        candidate = Mesh(raw.points, raw.cells, pieces=getattr(raw, "cell_pieces", None))
     except UnsupportedMeshError as err:
         raise err.with_where(where) from None
     mesh = None if pool is None else pool.match(candidate)
@@ -431,6 +433,8 @@ def mesh_and_fields(raw, where: str, pool=None) -> tuple[Mesh, StepFields]:
     note = getattr(raw, "convex_point_sets", None)
     if note:
         mesh.memo("convex_point_sets", lambda: note)
+    if hasattr(raw, "keep_split"):
+        raw.keep_split(mesh)
     return mesh, step_fields(mesh, raw, where)
 
 
@@ -514,7 +518,7 @@ def _checked_mesh(mesh: Mesh, raw, where: str) -> Mesh:
     blocks = [(b.type, inverse[np.asarray(b.data, dtype=np.int64)]) for b in raw.cells]
     points = np.zeros((n_unique, 3))
     points[inverse] = mesh.points
-    merged = Mesh(points, blocks, point_merge=inverse)
+    merged = Mesh(points, blocks, point_merge=inverse, pieces=getattr(raw, "cell_pieces", None))
     warnings.warn(MeshWarning(f"{mesh.n_points - n_unique} duplicate points merged (cells share their corners "
                               "now); point fields are averaged over the copies", where=where), stacklevel=3)
     return merged

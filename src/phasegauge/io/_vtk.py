@@ -1,6 +1,7 @@
 """VTK files: XML unstructured (``.vtu``), legacy (``.vtk``) and XML structured (``.vti``, ``.vtr``, ``.vts``).
 
-Unstructured and legacy files are read through meshio (:mod:`._meshio_adapter`);
+Unstructured and legacy files are read through meshio (:mod:`._meshio_adapter`), those
+holding polyhedra through VTK's reader (:mod:`._polyhedra`);
 structured datasets, which meshio does not read, through VTK's own readers
 (pyvista), handed over as a meshio mesh. A legacy file holding a structured
 dataset that meshio refuses goes the same way. Times stored in the field data
@@ -20,6 +21,7 @@ from ..errors import UnreadableFileError, short_text
 from ._claims import check_legacy_claims, check_xml_claims
 from ._formats import TIME_NEEDS_FULL_READ, register_format, stored_time
 from ._meshio_adapter import read_with_meshio
+from ._polyhedra import legacy_holds_polyhedra, read_polyhedral, xml_holds_polyhedra
 
 __all__ = ["FORMATS", "read_structured"]
 
@@ -143,11 +145,15 @@ def _structured_fallback(path: str):
 
 def read_xml_unstructured(path: str):
     check_xml_claims(path)
+    if xml_holds_polyhedra(path):  # meshio reads them only alone and not in format 2.3
+        return read_polyhedral(path)
     return read_with_meshio(path, "vtu")
 
 
 def read_legacy(path: str):
     check_legacy_claims(path)
+    if legacy_holds_polyhedra(path):  # meshio's legacy reader does not read them
+        return read_polyhedral(path)
     return read_with_meshio(path, "vtk", fallback=_structured_fallback)
 
 

@@ -114,7 +114,7 @@ class Mesh:
     0.5
     """
 
-    def __init__(self, points, cells, *, point_merge=None):
+    def __init__(self, points, cells, *, point_merge=None, pieces=None):
         pts = np.asarray(points, dtype=np.float64)
         if pts.ndim != 2 or pts.shape[1] not in (1, 2, 3):
             raise UnsupportedMeshError(
@@ -174,6 +174,14 @@ class Mesh:
         self.n_cells = int(self.block_offsets[-1])
         self.n_points = n_points
         self.point_merge = None if point_merge is None else np.asarray(point_merge, dtype=np.int64)
+        self.cell_parents = None  # the whole cell of each analysed cell, when a reader split cells
+        if pieces is not None and any(pieces[i] is not None for i in self.kept_blocks):
+            parts, top = [], 0
+            for i, block in zip(self.kept_blocks, self.blocks):
+                own = np.arange(len(block)) if pieces[i] is None else np.asarray(pieces[i], dtype=np.int64)
+                parts.append(own + top)
+                top += int(own.max()) + 1 if own.size else 0
+            self.cell_parents = np.concatenate(parts)
 
     # ------------------------------------------------------------------ basics
     def __repr__(self) -> str:
@@ -355,7 +363,13 @@ class Mesh:
 
     @cached_property
     def cell_sizes(self) -> np.ndarray:
-        """Characteristic cell length: measure ** (1 / dimension), shape (n_cells,)."""
+        """Characteristic cell length: measure ** (1 / dimension), shape (n_cells,).
+
+        Pieces of a cell a reader split (:attr:`cell_parents`) take the whole cell's measure.
+        """
+        if self.cell_parents is not None:
+            whole = np.bincount(self.cell_parents, weights=self.cell_measures)
+            return whole[self.cell_parents] ** (1.0 / self.dimension)
         return self.cell_measures ** (1.0 / self.dimension)
 
     @cached_property

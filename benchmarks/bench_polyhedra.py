@@ -1,0 +1,207 @@
+"""Speed on polyhedral cells: ``phasegauge.measure`` on VTK polyhedra against the same hexahedra
+and against a pyvista pipeline doing the same work on the polyhedra.
+
+Builds two folder series of ``--steps`` VTK XML files (binary, appended) over one jittered grid
+of about ``--sizes`` million hexahedra, with the droplet field ``c`` of
+``bench_measure.droplet_field`` on the points:
+
+* ``polyhedra``: every cell written as a VTK polyhedron (42), six quad faces each;
+* ``hexahedra``: the same cells written as VTK hexahedra (12).
+
+Then times, each configuration in a fresh child process, after one untimed read of the files:
+
+* ``baseline``: per step, ``pyvista.read`` of the polyhedral file and the work of
+  ``bench_measure.job_baseline`` (cell sizes, point-to-cell data, contour area, band volume,
+  threshold + connectivity droplets, integrals, 20 slices);
+* ``polyhedra`` / ``hexahedra``: ``phasegauge.measure(folder, 'c', section_axis='x')`` in one
+  process.
+
+Printed: measure / baseline on the polyhedra; the polyhedra's time per cell-step after the
+first step over the hexahedra's (the per-cell target is 1: the same speed per cell); first
+steps; peak memory over one step's mesh and fields (the hexahedra's bytes).
+
+Usage::
+
+    PYTHONPATH=src python benchmarks/bench_polyhedra.py [--sizes 0.25] [--steps 5] [--keep DIR]
+        [--configs baseline,polyhedra,hexahedra]
+"""
+
+from __future__ import annotations
+
+import argparse
+import json
+import os
+import subprocess
+import sys
+import tempfile
+import threading
+import time
+
+import numpy as np
+
+sys.path.insert(0, os.path.dirname(os.path.abspath(__file__)))
+
+from bench_measure import SECTIONS, _cpu_seconds, droplet_field  # noqa: E402
+
+CONFIGS = ("baseline", "polyhedra", "hexahedra")
+
+
+def build(folder: str, millions: float, steps: int) -> dict:
+    """Write both series (or reuse them); return their description."""
+    import pyvista
+
+    from phasegauge.meshgen import grid_mesh, to_polyhedral_grid
+
+    n = max(4, int(round((millions * 1e6) ** (1.0 / 3.0))))
+    base = os.path.join(folder, f"poly_{n}_{steps}")
+    info_path = os.path.join(base, "info.json")
+    if os.path.exists(info_path):
+        with open(info_path) as handle:
+            return json.load(handle)
+    mesh = grid_mesh((n, n, n), kind="hexahedron", jitter=0.2, seed=1)
+    poly = to_polyhedral_grid(mesh)
+    hexa = pyvista.UnstructuredGrid({pyvista.CellType.HEXAHEDRON: mesh.blocks[0].connectivity}, mesh.points)
+    for name, grid in (("polyhedra", poly), ("hexahedra", hexa)):
+        os.makedirs(os.path.join(base, name), exist_ok=True)
+        for k in range(steps):
+            grid.point_data["c"] = droplet_field(mesh.points, k, steps, 1.0 / n)
+            grid.save(os.path.join(base, name, f"step_{k:04d}.vtu"))
+    step_bytes = mesh.points.nbytes + sum(b.connectivity.nbytes for b in mesh.blocks) + 8 * mesh.n_points
+    info = {"cells": mesh.n_cells, "points": mesh.n_points, "steps": steps, "step_bytes": step_bytes,
+            "polyhedra": os.path.join(base, "polyhedra"), "hexahedra": os.path.join(base, "hexahedra")}
+    with open(info_path, "w") as handle:
+        json.dump(info, handle)
+    return info
+
+
+def job_baseline(folder: str) -> dict:
+    import pyvista
+
+    pyvista.OFF_SCREEN = True
+    t0 = time.perf_counter()
+    per_step = []
+    for name in sorted(os.listdir(folder)):
+        ts = time.perf_counter()
+        grid = pyvista.read(os.path.join(folder, name))
+        lo, hi = grid.bounds[0], grid.bounds[1]
+        positions = lo + (np.arange(SECTIONS) + 0.5) * (hi - lo) / SECTIONS
+        volume = np.abs(grid.compute_cell_sizes(length=False, area=False, volume=True).cell_data["Volume"])
+        cell_c = grid.point_data_to_cell_data().cell_data["c"]
+        phase_volume = float(volume @ cell_c)
+        mean = phase_volume / volume.sum()
+        segregation = float(volume @ (cell_c - mean) ** 2 / volume.sum() / (mean * (1 - mean)))
+        contour = grid.contour([0.5], scalars="c")
+        area = float(contour.compute_cell_sizes(length=False, volume=False).cell_data["Area"].sum())
+        band = grid.threshold([0.05, 0.95], scalars="c", preference="point")
+        band_volume = float(band.integrate_data().cell_data["Volume"][0]) if band.n_cells else 0.0
+        width = band_volume / area if area > 0 else float("nan")
+        inside = grid.threshold(0.5, scalars="c", preference="point", all_scalars=False)
+        count = 0
+        if inside.n_cells:
+            parts = inside.connectivity()
+            count = int(parts.cell_data["RegionId"].max()) + 1
+        moment = grid.integrate_data().point_data["c"][0]
+        profile = [grid.slice(normal="x", origin=(p, 0.5, 0.5)).integrate_data().point_data["c"][0]
+                   for p in positions]
+        per_step.append(time.perf_counter() - ts)
+    del segregation, width, count, moment, profile
+    return {"seconds": time.perf_counter() - t0, "per_step": per_step}
+
+
+def job_measure(folder: str) -> dict:
+    import phasegauge
+
+    t0 = time.perf_counter()
+    result = phasegauge.measure(folder, "c", section_axis="x", section_count=SECTIONS)
+    return {"seconds": time.perf_counter() - t0, "per_step": [r.seconds for r in result.results],
+            "droplets": [int(v) for v in result.steps["droplet_count"]],
+            "phase_volume": [float(v) for v in result.steps["phase_volume"]]}
+
+
+def _child(config: str, folder: str) -> None:
+    import psutil
+    import pyvista  # noqa: F401  (both read VTK files with it or beside it)
+
+    if config != "baseline":
+        import phasegauge.analysis.droplets  # noqa: F401
+        import phasegauge.analysis.interface  # noqa: F401
+        import phasegauge.analysis.tracking  # noqa: F401
+    me = psutil.Process()
+    base = me.memory_info().rss
+    peak = [base]
+    done = threading.Event()
+
+    def sample():
+        while not done.is_set():
+            peak[0] = max(peak[0], me.memory_info().rss)
+            done.wait(0.05)
+
+    thread = threading.Thread(target=sample, daemon=True)
+    cpu = _cpu_seconds()
+    thread.start()
+    out = job_baseline(folder) if config == "baseline" else job_measure(folder)
+    done.set()
+    thread.join()
+    out.update({"cpu_seconds": _cpu_seconds() - cpu, "peak": peak[0] - base})
+    print("RESULT " + json.dumps(out))
+
+
+def run_child(config: str, folder: str) -> dict:
+    env = dict(os.environ)
+    src = os.path.join(os.path.dirname(os.path.dirname(os.path.abspath(__file__))), "src")
+    env["PYTHONPATH"] = src + os.pathsep + env.get("PYTHONPATH", "")
+    proc = subprocess.run([sys.executable, os.path.abspath(__file__), "--child", config, folder],
+                          capture_output=True, text=True, env=env)
+    for line in proc.stdout.splitlines():
+        if line.startswith("RESULT "):
+            return json.loads(line[len("RESULT "):])
+    raise RuntimeError(f"{config} on {folder} failed:\n{proc.stderr[-3000:]}")
+
+
+def main(argv=None) -> None:
+    parser = argparse.ArgumentParser(description=__doc__.splitlines()[0])
+    parser.add_argument("--sizes", default="0.25", help="millions of cells, comma separated")
+    parser.add_argument("--steps", type=int, default=5)
+    parser.add_argument("--configs", default=",".join(CONFIGS))
+    parser.add_argument("--keep", default=None, help="build the series in this folder and keep them")
+    parser.add_argument("--child", nargs=2, help=argparse.SUPPRESS)
+    args = parser.parse_args(argv)
+    if args.child:
+        _child(*args.child)
+        return
+    folder = args.keep or tempfile.mkdtemp(prefix="pg-bench-poly-")
+    configs = [c for c in args.configs.split(",") if c]
+    print(f"series in {folder}; {os.cpu_count()} cores", flush=True)
+    for millions in (float(s) for s in args.sizes.split(",") if s):
+        info = build(folder, millions, args.steps)
+        print(f"\n{info['cells']} cells, {info['points']} points, {info['steps']} steps", flush=True)
+        for name in ("polyhedra", "hexahedra"):  # untimed read: every job finds the files cached
+            for f in sorted(os.listdir(info[name])):
+                with open(os.path.join(info[name], f), "rb") as handle:
+                    while handle.read(1 << 24):
+                        pass
+        res = {}
+        for config in configs:
+            res[config] = run_child(config, info["hexahedra" if config == "hexahedra" else "polyhedra"])
+            out = res[config]
+            print(f"  {config:9s} {out['seconds']:8.2f} s  first step {out['per_step'][0]:.2f} s  later steps "
+                  f"{np.median(out['per_step'][1:] or out['per_step']):.2f} s  peak "
+                  f"{out['peak'] / info['step_bytes']:.1f}x step", flush=True)
+        poly, hexa, base = res.get("polyhedra"), res.get("hexahedra"), res.get("baseline")
+        if poly and base:
+            print(f"  measure / baseline on polyhedra: {poly['seconds'] / base['seconds']:.2f}")
+        if poly and hexa:
+            later = [np.median(r["per_step"][1:] or r["per_step"]) for r in (poly, hexa)]
+            print(f"  polyhedra / hexahedra per cell-step after the first: {later[0] / later[1]:.2f}; "
+                  f"first step {poly['per_step'][0] / hexa['per_step'][0]:.2f}; "
+                  f"us per cell-step {1e6 * later[0] / info['cells']:.2f} / {1e6 * later[1] / info['cells']:.2f}")
+            print(f"  droplets {poly['droplets']} / {hexa['droplets']}; phase volume relative difference "
+                  f"{max(abs(a - b) / b for a, b in zip(poly['phase_volume'], hexa['phase_volume'])):.1e}")
+    if not args.keep:
+        import shutil
+
+        shutil.rmtree(folder, ignore_errors=True)
+
+
+if __name__ == "__main__":
+    main()

@@ -1,0 +1,283 @@
+"""VTK files holding polyhedral cells (type 42): read with VTK's own reader, split into tetrahedra.
+
+meshio reads polyhedra from VTK XML files of format 2.2 and before only, and only when every cell
+of the file is one (its reader refuses them mixed with other cells and lists their faces one
+cell at a time in Python); it reads neither the face arrays of format 2.3 (``face_connectivity``,
+``face_offsets``, ``polyhedron_to_faces``, ``polyhedron_offsets``, which VTK 9.4 and later
+write) nor legacy files with polyhedra. So a file that holds polyhedra is read with VTK's
+reader (through pyvista, as the structured datasets are) and handed over as a meshio mesh:
+
+* polyhedra become the tetrahedra of :func:`phasegauge.model.polyhedra.split_polyhedra`
+  (about their face and cell centres); hexahedra, wedges and pyramids of the same file are
+  split the same way, so that a face they share with a polyhedron is cut alike from both sides
+  (tetrahedra and every other cell are kept as they are);
+* the added centres become points; point fields there are the mean of the corners' values;
+* every tetrahedron keeps the cell values of the cell it comes from, so integrals of cell
+  data are unchanged, and is marked as a piece of it (``raw.cell_pieces``, which the mesh
+  keeps as :attr:`Mesh.cell_parents`): cell sizes, and the widths and resolutions measured in
+  cells, are those of the whole cells.
+
+The read is noted as ``raw.convex_point_sets`` (how cells were read; ``inspect`` shows it).
+The split depends on the points and faces only: :class:`PolyhedralRead` takes it from a mesh
+of the series' :class:`MeshPool` built from the same ones, so a series splits its mesh once.
+"""
+
+from __future__ import annotations
+
+import contextlib
+import hashlib
+import io
+import mmap
+import re
+import warnings
+from functools import cached_property
+
+import numpy as np
+
+from ..errors import MeshWarning, UnreadableFileError, UnsupportedMeshError, short_text
+from ._meshio_adapter import CONVEX_POINT_SET, convex_point_sets, ensure_vtk_extras, new_mesh, read_with_meshio
+
+__all__ = ["xml_holds_polyhedra", "legacy_holds_polyhedra", "read_polyhedral", "PolyhedralRead"]
+
+#: VTK cell type of a polyhedron
+VTK_POLYHEDRON = 42
+#: VTK cell types of variable size, grouped by their number of points
+_VARIABLE = (7, 41)
+#: ordinary 3D cells split like the polyhedra beside them (their faces may be shared with one)
+_QUAD_FACED = ("hexahedron", "wedge", "pyramid")
+
+
+def xml_holds_polyhedra(path: str) -> bool:
+    """True when a VTK XML file names polyhedron face arrays (of format 2.3 or before) in its XML."""
+    with open(path, "rb") as handle:
+        try:
+            view = mmap.mmap(handle.fileno(), 0, access=mmap.ACCESS_READ)
+        except ValueError:  # an empty file
+            return False
+        with view:
+            end = view.find(b"<AppendedData")
+            end = len(view) if end < 0 else end
+            return any(view.find(name, 0, end) >= 0 for name in (b'Name="faceoffsets"', b'Name="face_offsets"'))
+
+
+def legacy_holds_polyhedra(path: str) -> bool:
+    """True when a legacy VTK unstructured grid lists cell type 42 in its ``CELL_TYPES``."""
+    with open(path, "rb") as handle:
+        try:
+            view = mmap.mmap(handle.fileno(), 0, access=mmap.ACCESS_READ)
+        except ValueError:
+            return False
+        with view:
+            if b"UNSTRUCTURED_GRID" not in view[:1024].upper():
+                return False
+            match = re.search(rb"\nCELL_TYPES[ \t]+(\d+)[ \t\r]*\n", view)
+            if match is None:
+                return False
+            count = int(match.group(1))
+            binary = b"\nBINARY" in view[:1024].upper()
+            if binary:
+                types = np.frombuffer(view[match.end():match.end() + 4 * count], dtype=">i4")
+            else:
+                types = np.array(view[match.end():match.end() + 12 * count].split()[:count], dtype=np.int64)
+            return bool(np.any(types == VTK_POLYHEDRON))
+
+
+def _read_grid(path: str):
+    import pyvista
+
+    catcher = pyvista.VtkErrorCatcher(raise_errors=False)
+    try:
+        with warnings.catch_warnings(), catcher, contextlib.redirect_stderr(io.StringIO()):
+            warnings.simplefilter("ignore")
+            grid = pyvista.read(path)
+    except Exception as exc:
+        raise UnreadableFileError(f"cannot be read as a VTK file with polyhedra ({short_text(exc)})", where=path,
+                                  fix="check that the file is complete and was fully written") from None
+    if catcher.events:
+        first = catcher.events[0].alert.splitlines()[-1].strip()
+        raise UnreadableFileError(f"VTK's reader reports the data is damaged or ends early ({first})", where=path,
+                                  fix="the solver may have stopped while writing it: write the step again")
+    if type(grid).__name__ != "UnstructuredGrid" or grid.n_cells == 0:
+        raise UnreadableFileError("holds no unstructured cells", where=path,
+                                  fix="the file may be truncated; write it again")
+    return grid
+
+
+def _cell_array(cell_array) -> tuple[np.ndarray, np.ndarray]:
+    """Connectivity and offsets (int64) of a vtkCellArray."""
+    from vtkmodules.util.numpy_support import vtk_to_numpy
+
+    return (vtk_to_numpy(cell_array.GetConnectivityArray()).astype(np.int64, copy=False),
+            vtk_to_numpy(cell_array.GetOffsetsArray()).astype(np.int64, copy=False))
+
+
+def _polyhedron_faces(grid, cells: np.ndarray, path: str = ""):
+    """Face stream of the polyhedra ``cells``: corners, offsets and the polyhedron (0..) of each face.
+
+    Read from VTK's face arrays of VTK 9.4 and later (``GetPolyhedronFaces``,
+    ``GetPolyhedronFaceLocations``, whatever the file's format version).
+    """
+    if not hasattr(grid, "GetPolyhedronFaceLocations"):
+        import vtkmodules
+
+        raise UnreadableFileError(f"reading polyhedra needs VTK 9.4 or later (found {vtkmodules.__version__})",
+                                  where=path, fix="install a newer VTK: pip install 'vtk>=9.4'")
+
+    face_conn, face_offs = _cell_array(grid.GetPolyhedronFaces())
+    loc_conn, loc_offs = _cell_array(grid.GetPolyhedronFaceLocations())
+    per_cell = np.diff(loc_offs)[cells]
+    first = loc_offs[cells]
+    faces = np.repeat(first - np.concatenate([[0], np.cumsum(per_cell)[:-1]]), per_cell) + np.arange(per_cell.sum())
+    face_ids = loc_conn[faces]
+    sizes = face_offs[face_ids + 1] - face_offs[face_ids]
+    offsets = np.concatenate([[0], np.cumsum(sizes)]).astype(np.int64)
+    stream = np.repeat(face_offs[face_ids] - offsets[:-1], sizes) + np.arange(offsets[-1])
+    return face_conn[stream], offsets, np.repeat(np.arange(cells.size, dtype=np.int64), per_cell)
+
+
+def read_polyhedral(path: str):
+    """Read a VTK file holding polyhedra as a meshio mesh (see the module notes)."""
+    import meshio._vtk_common as vtk_common
+
+    from ..model.cells import LINEAR_CORNERS
+    from ..model.polyhedra import cell_face_stream
+
+    ensure_vtk_extras()
+    grid = _read_grid(path)
+    points = np.asarray(grid.points, dtype=np.float64)
+    types = np.asarray(grid.celltypes, dtype=np.int64)
+    conn, offs = _cell_array(grid.GetCells())
+    sizes = np.diff(offs)
+    blocks, rows_of = [], []  # kept cells: (meshio type, connectivity), input rows
+    streams = []  # cells split with the polyhedra: (face points, face offsets, face cell), input rows
+    for t in np.unique(types):
+        rows_t = np.flatnonzero(types == t)
+        if t == VTK_POLYHEDRON:
+            streams.append((_polyhedron_faces(grid, rows_t, path), rows_t))
+            continue
+        name = vtk_common.vtk_to_meshio_type.get(int(t))
+        if name is None:
+            raise UnsupportedMeshError(f"VTK cell type {int(t)} is not supported", where=path,
+                                       fix="write the mesh with linear cells or polyhedra")
+        for k in (np.unique(sizes[rows_t]) if t in _VARIABLE else [None]):
+            rows = rows_t if k is None else rows_t[sizes[rows_t] == k]
+            cells = conn[offs[rows][:, None] + np.arange(int(sizes[rows[0]]))]
+            linear = LINEAR_CORNERS.get(str(name), (str(name), None))
+            if linear[0] in _QUAD_FACED:
+                local = cells if linear[1] is None else cells[:, linear[1]]
+                streams.append((cell_face_stream(linear[0], local), rows))
+                continue
+            blocks.append((name, cells))
+            rows_of.append(rows)
+    if not any(types == VTK_POLYHEDRON):  # face arrays named, but no polyhedron among the cells
+        return read_with_meshio(path, "vtu" if path.lower().endswith(".vtu") else "vtk")
+    point_data = {name: np.asarray(grid.point_data[name]) for name in grid.point_data.keys()}
+    cell_data = {name: np.asarray(grid.cell_data[name]) for name in grid.cell_data.keys()}
+    field_data = {name: np.asarray(grid.field_data[name]) for name in grid.field_data.keys()}
+    return PolyhedralRead(path, points, blocks, rows_of, _join_streams(streams), point_data, cell_data, field_data,
+                          int(np.count_nonzero(types == VTK_POLYHEDRON)))
+
+
+class PolyhedralRead:
+    """A file with polyhedra as read, before and after the split (a meshio-style mesh).
+
+    The split (:func:`phasegauge.model.polyhedra.split_polyhedra`) is made on first use of the
+    mesh's attributes (``points``, ``cells``, ``point_data``, ``cell_data``, ...), or taken from
+    a kept mesh of a :class:`MeshPool` that was built from the same points and faces
+    (:meth:`use_pool`; :meth:`keep_split` keeps it with the mesh): a series whose mesh stays
+    the same splits it once.
+    """
+
+    _KEY = "polyhedra_split"
+
+    def __init__(self, path, points, blocks, rows_of, stream, point_data, cell_data, field_data, n_poly):
+        self.path, self._points, self._blocks, self._rows_of = path, points, blocks, rows_of
+        self._stream, self._point_data, self._cell_data = stream, point_data, cell_data
+        self.field_data, self.n_poly = field_data, n_poly
+        self._split = None
+
+    @cached_property
+    def signature(self) -> str:
+        """Hash of the points and the split cells' faces: equal signatures split alike."""
+        h = hashlib.sha256()
+        h.update(np.ascontiguousarray(self._points))
+        for array in self._stream:
+            h.update(np.ascontiguousarray(array))
+        return h.hexdigest()[:32]
+
+    def use_pool(self, pool) -> None:
+        """Take the split of a kept mesh of ``pool`` built from the same points and faces."""
+        for mesh in pool or ():
+            kept = mesh.memo(self._KEY, lambda: None, keep=False)
+            if kept is not None and kept[0] == self.signature:
+                self._split = kept[1]
+                return
+
+    def keep_split(self, mesh) -> None:
+        """Keep the split with ``mesh`` (for the next steps of a series)."""
+        mesh.memo(self._KEY, lambda: (self.signature, self.split))
+
+    @property
+    def split(self):
+        from ..model.polyhedra import split_polyhedra
+
+        if self._split is None:
+            face_points, face_offsets, face_cell, rows = self._stream
+            self._split = split_polyhedra(self._points, face_points, face_offsets, face_cell, rows.size,
+                                          where=self.path, cell_ids=rows)
+        return self._split
+
+    def __getattr__(self, name):
+        if name.startswith("_"):
+            raise AttributeError(name)
+        return getattr(self._raw, name)
+
+    @cached_property
+    def _raw(self):
+        split, path = self.split, self.path
+        if split.inverted_tetra:
+            warnings.warn(MeshWarning(f"{split.inverted_tetra} tetrahedra of the polyhedra's split have negative "
+                                      "volume (cells not star-shaped from their corner mean)", where=path),
+                          stacklevel=3)
+        rows = self._stream[3]
+        blocks = self._blocks + [("tetra", split.tetra)]
+        rows_of = self._rows_of + [rows[split.source]]
+        point_data, points = dict(self._point_data), self._points
+        if split.n_centres:
+            for name, values in list(point_data.items()):
+                if np.issubdtype(values.dtype, np.number):
+                    point_data[name] = np.concatenate([values.astype(np.float64), split.centre_values(values)])
+                else:
+                    del point_data[name]
+            points = np.concatenate([points, split.centre_values(points)])
+        cell_data = {name: [values[r] for r in rows_of] for name, values in self._cell_data.items()
+                     if np.issubdtype(values.dtype, np.number)}
+        raw = new_mesh(points, blocks, point_data=point_data, cell_data=cell_data, field_data=self.field_data)
+        note = None
+        if any(isinstance(name, type(CONVEX_POINT_SET)) for name, _ in blocks):
+            note = convex_point_sets(raw).convex_point_sets  # the split's block stays the last
+        # the split cells' tetrahedra are pieces of them (cell sizes are the whole cells')
+        raw.cell_pieces = [None] * (len(raw.cells) - 1) + [split.source]
+        words = f"{self.n_poly} polyhedral cells (VTK 42)"
+        others = int(rows.size) - self.n_poly
+        if others:
+            words += f" and the {others} hexahedra, wedges and pyramids beside them"
+        words += f" read as {len(split.tetra)} tetrahedra about their face and cell centres"
+        raw.convex_point_sets = words if not note else f"{words}; {note}"
+        return raw
+
+
+def _join_streams(streams: list):
+    """One face stream of every split cell (cells numbered 0.. in the order of ``streams``)."""
+    points, offsets, cells, rows = [], [], [], []
+    base, n_cells = 0, 0
+    for (face_points, face_offsets, face_cell), source in streams:
+        points.append(face_points)
+        offsets.append(face_offsets[:-1] + base)
+        cells.append(face_cell + n_cells)
+        rows.append(source)
+        base += int(face_offsets[-1])
+        n_cells += int(source.size)
+    offsets.append(np.array([base], dtype=np.int64))
+    return (np.concatenate(points), np.concatenate(offsets), np.concatenate(cells),
+            np.concatenate(rows).astype(np.int64))

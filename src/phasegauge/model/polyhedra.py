@@ -1,0 +1,287 @@
+"""Polyhedral cells (VTK type 42) as tetrahedra about their face and cell centres.
+
+A polyhedron is given by its faces, each a loop of corner points. It is split into tetrahedra
+that conform with its neighbours:
+
+* every face of four or more corners gets a face centre, the mean of its corners, and is cut
+  into one triangle per edge about that centre; the centre is shared by the two cells on the
+  face's sides (faces are matched by their sets of corners), so a shared face is cut alike from
+  both sides whatever order either cell lists its corners in;
+* triangular faces stay whole (the same triangle seen from both sides);
+* every face triangle is joined to the cell centre, the mean of the cell's distinct corners,
+  so a hexahedron becomes 24 tetrahedra, a wedge 18 and a pyramid 8.
+
+Centres are vertex means, not area- or volume-weighted centroids: the same choice as the
+coned cells of :func:`phasegauge.model.simplices.split_cells` (their centre is the trilinear
+value at the cell middle), and a point value at a centre is the mean of its corners' values,
+so a linear field is reproduced exactly. The tetrahedra fill the polyhedron exactly when its
+faces are flat (planar faces, whatever their number of corners), and fill the polyhedron
+bounded by the face triangles about the face centres when they are not; the sum of their
+signed volumes is then the volume the divergence theorem gives for those triangles.
+
+Every face list is checked before it is split: each edge of a cell must be used by exactly two
+of its faces, in opposite directions (a closed surface, consistently oriented). Faces may all
+point out or all point in: a cell whose tetrahedra add up to a negative volume is turned over.
+
+References
+----------
+.. [1] Kitware, *The VTK User's Guide*, 11th ed. (2010), cell type VTK_POLYHEDRON (42), and the
+   VTK wiki page "VTK/Polyhedron Support" (the face stream of a polyhedron).
+.. [2] Dompierre, J., Labbe, P., Vallet, M.-G. and Camarero, R. (1999), "How to subdivide
+   pyramids, prisms and hexahedra into tetrahedra", 8th International Meshing Roundtable
+   (splits about face and cell centres, and why they conform).
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+
+import numpy as np
+
+from ..errors import UnsupportedMeshError
+from ._grouping import group_columns
+from .cells import FACES
+
+__all__ = ["PolyhedraSplit", "split_polyhedra", "cell_face_stream"]
+
+_FIX_FACES = ("write each polyhedron as a closed surface: every edge shared by exactly two of its faces, "
+              "all faces listed with outward (or all with inward) normals")
+
+
+@dataclass(frozen=True, eq=False)
+class PolyhedraSplit:
+    """Tetrahedra covering polyhedral cells, with the centres they add.
+
+    Attributes
+    ----------
+    tetra : ndarray of shape (m, 4), int64
+        Corner point ids of each tetrahedron, positively oriented (VTK order); ids from
+        ``n_points`` on are added centres.
+    source : ndarray of shape (m,), int64
+        The input cell each tetrahedron belongs to (in increasing order).
+    centre_points : ndarray of shape (q,), int64
+        The corners of every added centre, one centre after another.
+    centre_offsets : ndarray of shape (n_centres + 1,), int64
+        Where each centre's corners start in ``centre_points``.
+    n_points : int
+        Number of input points; centre ``j`` has point id ``n_points + j``.
+    n_face_centres : int
+        The first ``n_face_centres`` centres are face centres, the rest cell centres (one per cell).
+    reversed_cells : int
+        Cells whose faces were listed with inward normals (turned over).
+    inverted_tetra : int
+        Tetrahedra of negative volume after the turning (cells not star-shaped from their centre).
+    """
+
+    tetra: np.ndarray
+    source: np.ndarray
+    centre_points: np.ndarray
+    centre_offsets: np.ndarray
+    n_points: int
+    n_face_centres: int
+    reversed_cells: int = 0
+    inverted_tetra: int = 0
+
+    @property
+    def n_centres(self) -> int:
+        return int(self.centre_offsets.size - 1)
+
+    def centre_values(self, values: np.ndarray) -> np.ndarray:
+        """Values at the added centres: the mean of their corners' values.
+
+        ``values`` has shape (n_points,) or (n_points, ...); the result (n_centres,) or
+        (n_centres, ...), in float64.
+        """
+        v = np.asarray(values, dtype=np.float64)
+        if self.n_centres == 0:
+            return np.zeros((0,) + v.shape[1:])
+        counts = np.diff(self.centre_offsets)
+        sums = np.add.reduceat(v[self.centre_points], self.centre_offsets[:-1], axis=0)
+        return sums / counts.reshape((-1,) + (1,) * (v.ndim - 1))
+
+
+def cell_face_stream(cell_type: str, connectivity: np.ndarray) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+    """The faces of ordinary 3D cells as a face stream (see :func:`split_polyhedra`).
+
+    Returns ``(face_points, face_offsets, face_cell)``, the faces in the order of
+    :data:`phasegauge.model.cells.FACES` for each cell (outward normals), cell after cell.
+    """
+    conn = np.asarray(connectivity, dtype=np.int64)
+    faces = FACES[cell_type]
+    n = conn.shape[0]
+    sizes = np.array([len(f) for f in faces], dtype=np.int64)
+    rows = np.concatenate([conn[:, list(f)] for f in faces], axis=1)  # cell-major
+    offsets = np.concatenate([[0], np.cumsum(np.tile(sizes, n))]).astype(np.int64)
+    return rows.ravel(), offsets, np.repeat(np.arange(n, dtype=np.int64), len(faces))
+
+
+def _refuse(what: str, where: str) -> UnsupportedMeshError:
+    return UnsupportedMeshError(what, where=where, fix=_FIX_FACES)
+
+
+def _check_faces(n_points: int, face_points, face_offsets, face_cell, n_cells: int, where: str, ids) -> np.ndarray:
+    """Check the face stream; returns the face sizes."""
+    sizes = np.diff(face_offsets)
+    if face_offsets[0] != 0 or face_offsets[-1] != face_points.size or np.any(sizes < 0):
+        raise _refuse(f"the polyhedron face offsets do not fit the {face_points.size} face corner numbers", where)
+    small = np.flatnonzero(sizes < 3)
+    if small.size:
+        raise _refuse(f"{small.size} polyhedron faces have fewer than 3 corners "
+                      f"(the first: cell {int(ids[face_cell[small[0]]])})", where)
+    if face_points.size and (face_points.min() < 0 or face_points.max() >= n_points):
+        raise _refuse(f"polyhedron faces refer to points outside 0..{n_points - 1}", where)
+    per_cell = np.bincount(face_cell, minlength=n_cells)
+    few = np.flatnonzero(per_cell < 4)
+    if few.size:
+        raise _refuse(f"{few.size} polyhedra have fewer than 4 faces (the first: cell {int(ids[few[0]])} "
+                      f"with {int(per_cell[few[0]])})", where)
+    return sizes
+
+
+def _next_corners(face_offsets: np.ndarray, sizes: np.ndarray) -> np.ndarray:
+    """For each position of the face stream, the position of the next corner around its face."""
+    nxt = np.arange(1, int(face_offsets[-1]) + 1, dtype=np.int64)
+    nxt[face_offsets[1:] - 1] = face_offsets[:-1]
+    return nxt
+
+
+def _check_closed(face_points, nxt, edge_cell, where: str, ids) -> None:
+    """Every edge of a cell used by two of its faces, once in each direction."""
+    a, b = face_points, face_points[nxt]
+    lo, hi = np.minimum(a, b), np.maximum(a, b)
+    order, starts = group_columns([edge_cell, lo, hi])
+    counts = np.diff(starts, append=order.size)
+    bad = counts != 2
+    if bad.any():
+        first = int(ids[edge_cell[order[starts[np.flatnonzero(bad)[0]]]]])
+        n_bad = int(np.unique(edge_cell[order[starts[bad]]]).size)
+        raise _refuse(f"{n_bad} polyhedra are not closed: an edge is used by {int(counts[bad][0])} of the cell's "
+                      f"faces instead of 2 (the first: cell {first})", where)
+    forward = (a < b)[order]
+    same = forward[starts] == forward[starts + 1]
+    if same.any():
+        cells = edge_cell[order[starts[same]]]
+        raise _refuse(f"{int(np.unique(cells).size)} polyhedra list their faces with inconsistent orientations "
+                      f"(an edge runs the same way in both of its faces; the first: cell {int(ids[cells[0]])})", where)
+
+
+def split_polyhedra(points: np.ndarray, face_points, face_offsets, face_cell, n_cells: int, *,
+                    where: str = "", cell_ids=None) -> PolyhedraSplit:
+    """Split polyhedral cells into tetrahedra about their face and cell centres.
+
+    Parameters
+    ----------
+    points : ndarray of shape (n_points, 3)
+        Point coordinates, in mesh length units.
+    face_points : ndarray of shape (q,), int
+        The corners of every face of every cell, face after face, each face a loop.
+    face_offsets : ndarray of shape (n_faces + 1,), int
+        Where each face starts in ``face_points`` (the last entry is ``q``).
+    face_cell : ndarray of shape (n_faces,), int
+        The cell (0 to ``n_cells - 1``) each face belongs to. A face shared by two cells
+        is listed once for each of them.
+    n_cells : int
+        Number of cells.
+    where : str
+        The file, for the error message.
+    cell_ids : ndarray of shape (n_cells,), optional
+        The cells' numbers in the file, for the error message (default 0 to ``n_cells - 1``).
+
+    Returns
+    -------
+    PolyhedraSplit
+
+    Raises
+    ------
+    UnsupportedMeshError
+        A face with fewer than 3 corners, a corner outside the points, a cell with fewer
+        than 4 faces, or a face list that is not a closed, consistently oriented surface.
+
+    Notes
+    -----
+    Work is vectorised over faces of equal size; shared faces are matched by grouping
+    their sorted corners (an exact radix sort, :func:`._grouping.group_columns`).
+    """
+    X = np.asarray(points, dtype=np.float64)
+    face_points = np.asarray(face_points, dtype=np.int64)
+    face_offsets = np.asarray(face_offsets, dtype=np.int64)
+    face_cell = np.asarray(face_cell, dtype=np.int64)
+    n_points = X.shape[0]
+    ids = np.arange(n_cells) if cell_ids is None else np.asarray(cell_ids)
+    sizes = _check_faces(n_points, face_points, face_offsets, face_cell, n_cells, where, ids)
+    nxt = _next_corners(face_offsets, sizes)
+    edge_cell = np.repeat(face_cell, sizes)
+    _check_closed(face_points, nxt, edge_cell, where, ids)
+
+    # face centres: one per distinct face of four or more corners
+    centre_parts, centre_counts, face_centre = [], [], np.full(sizes.size, -1, dtype=np.int64)
+    n_face_centres = 0
+    for k in np.unique(sizes[sizes >= 4]):
+        faces = np.flatnonzero(sizes == k)
+        rows = np.sort(face_points[face_offsets[faces][:, None] + np.arange(k)], axis=1)
+        order, starts = group_columns(list(rows.T))
+        group = np.empty(faces.size, dtype=np.int64)
+        group[order] = np.repeat(np.arange(starts.size), np.diff(starts, append=order.size))
+        face_centre[faces] = n_points + n_face_centres + group
+        centre_parts.append(rows[order[starts]].ravel())
+        centre_counts.append(np.full(starts.size, k, dtype=np.int64))
+        n_face_centres += starts.size
+    # cell centres: the mean of each cell's distinct corners
+    order, starts = group_columns([edge_cell, face_points])
+    distinct = order[starts]
+    centre_parts.append(face_points[distinct])
+    centre_counts.append(np.bincount(edge_cell[distinct], minlength=n_cells))
+    centre_points = np.concatenate(centre_parts)
+    centre_offsets = np.concatenate([[0], np.cumsum(np.concatenate(centre_counts))]).astype(np.int64)
+    cell_centre = n_points + n_face_centres + np.arange(n_cells, dtype=np.int64)
+
+    # tetrahedra: each face triangle joined to the cell centre; a face listed with an outward
+    # normal gives (b, a, c, centre) a positive volume
+    triangles = np.flatnonzero(sizes == 3)
+    centred = sizes >= 4
+    corner = np.flatnonzero(np.repeat(centred, sizes))  # stream positions of the centred faces' corners
+    tetra = np.empty((triangles.size + corner.size, 4), dtype=np.int64)
+    source = np.empty(tetra.shape[0], dtype=np.int64)
+    if triangles.size:
+        p = face_offsets[triangles]
+        part = tetra[:triangles.size]
+        part[:, 0], part[:, 1], part[:, 2] = face_points[p + 1], face_points[p], face_points[p + 2]
+        source[:triangles.size] = face_cell[triangles]
+        part[:, 3] = cell_centre[source[:triangles.size]]
+    if corner.size:
+        face_of = np.repeat(np.arange(sizes.size), sizes)[corner]
+        part = tetra[triangles.size:]
+        part[:, 0], part[:, 1], part[:, 2] = face_points[nxt[corner]], face_points[corner], face_centre[face_of]
+        source[triangles.size:] = face_cell[face_of]
+        part[:, 3] = cell_centre[source[triangles.size:]]
+    if source.size and np.any(source[1:] < source[:-1]):  # faces of several sizes: cell by cell again
+        keep = np.argsort(source, kind="stable")
+        tetra, source = tetra[keep], source[keep]
+
+    split = PolyhedraSplit(tetra, source, centre_points, centre_offsets, n_points, n_face_centres)
+    Y = np.concatenate([X, split.centre_values(X)])
+    volume = _signed_volumes(Y, tetra)
+    total = np.bincount(source, weights=volume, minlength=n_cells)
+    turn = total < 0
+    if turn.any():
+        flip = turn[source]
+        tetra[flip] = tetra[flip][:, [1, 0, 2, 3]]
+        volume[flip] = -volume[flip]
+    return PolyhedraSplit(tetra, source, centre_points, centre_offsets, n_points, n_face_centres,
+                          reversed_cells=int(np.count_nonzero(turn)),
+                          inverted_tetra=int(np.count_nonzero(volume < 0)))
+
+
+def _signed_volumes(Y: np.ndarray, tetra: np.ndarray) -> np.ndarray:
+    """Signed volumes of the tetrahedra, coordinate column by column (small temporaries)."""
+    columns = [np.ascontiguousarray(Y[:, i]) for i in range(3)]
+    out = np.empty(tetra.shape[0])
+    chunk = 1 << 16
+    for lo in range(0, tetra.shape[0], chunk):
+        t = tetra[lo:lo + chunk]
+        a = [x[t[:, 0]] for x in columns]
+        e = [[x[t[:, j]] - a[i] for i, x in enumerate(columns)] for j in (1, 2, 3)]
+        out[lo:lo + chunk] = (e[0][0] * (e[1][1] * e[2][2] - e[1][2] * e[2][1])
+                              - e[0][1] * (e[1][0] * e[2][2] - e[1][2] * e[2][0])
+                              + e[0][2] * (e[1][0] * e[2][1] - e[1][1] * e[2][0])) / 6.0
+    return out
