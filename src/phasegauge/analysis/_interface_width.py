@@ -22,6 +22,7 @@ from ..model.corners import CornerExtremes, cell_gradient, corner_extremes
 from ..model.mesh import Mesh
 from ._contour import _check_level, find_interface
 from ._profile_fits import PROFILE_COLUMNS, WIDTH_PER_EPS, _profile_table
+from ._hex_integrals import _HexBand, coned_hexahedra
 from ._signed_distance import _ContourGeometry
 from ._width_integrals import _TAIL, _GridBand, _SplitBand, _grid_tetrahedra
 
@@ -108,7 +109,12 @@ class _Work:
         lo, hi = extremes if extremes is not None else corner_extremes(mesh, self.c_point)
         if (low, high) != (0.0, 1.0):
             lo, hi = (lo - low) / (high - low), (hi - low) / (high - low)
-        self.integrals = _SplitBand(mesh, self.clipped, (hi > tail) & (lo < 1.0 - tail))
+        active = (hi > tail) & (lo < 1.0 - tail)
+        coned = coned_hexahedra(mesh)
+        if coned is not None:  # hexahedra coned on all faces: integrated cell by cell
+            self.integrals = _HexBand(mesh, self.clipped, active, coned, lo, hi)
+            return
+        self.integrals = _SplitBand(mesh, self.clipped, active)
 
 
 def _cell_mixed(mesh: Mesh, indicator, low: float, high: float, tail: float):
