@@ -88,17 +88,16 @@ def _plane_pieces(mesh: Mesh, axis: int, position: float, lower_end: bool, cells
     dim = mesh.dimension
     split = split_cells(mesh, cells)
     nodes, parent, centres = split.simplices, split.owner, [corners for _, corners in split.centres]
-    X = split.corner_values(mesh.coordinates)
-    s = X[:, :, axis] - position
+    # the offsets from the plane first (one coordinate), the in-plane corners of the crossed
+    # simplices only: the same numbers as gathering all corners (centres are corner means)
+    s = split.centre_means(mesh.coordinates[:, axis])[nodes] - position
     below = np.count_nonzero(s <= 0 if lower_end else s < 0, axis=1)
     crossed = (below > 0) & (below < dim + 1)
     others = [a for a in range(dim) if a != axis]
-    X, nodes, parent, s, below = X[crossed][:, :, others], nodes[crossed], parent[crossed], s[crossed], below[crossed]
+    nodes, parent, s, below = nodes[crossed], parent[crossed], s[crossed], below[crossed]
+    X = split.centre_means(mesh.coordinates[:, others])[nodes]
     nodes = np.where(nodes >= mesh.n_points, nodes - mesh.n_points + first_added, nodes)
-    order = np.argsort(s, axis=1, kind="stable")
-    s = np.take_along_axis(s, order, axis=1)
-    X = np.take_along_axis(X, order[:, :, None], axis=1)
-    nodes = np.take_along_axis(nodes, order, axis=1)
+    s, X, nodes = _sorted_corners(s, X, nodes)
 
     def case(k):
         # the simplices with k corners below the plane, gathered once for all their edges
@@ -133,6 +132,31 @@ def _plane_pieces(mesh: Mesh, axis: int, position: float, lower_end: bool, cells
         d2 = X[:, 2] - X[:, 0]
         measures = 0.5 * np.abs(d1[:, 0] * d2[:, 1] - d1[:, 1] * d2[:, 0])
     return measures, np.concatenate(parents), start, end, t, centres
+
+
+def _sorted_corners(s: np.ndarray, X: np.ndarray, nodes: np.ndarray) -> tuple:
+    """Each simplex's corners in increasing ``s``, ties in corner order (as a stable argsort).
+
+    By adjacent exchanges (bubble sort: stable, and a sorting network for these few columns),
+    the corners' coordinates and nodes moving with their ``s``: no per-row argsort and gathers.
+    """
+    k = s.shape[1]
+    s = [s[:, j] for j in range(k)]
+    X = [X[:, j] for j in range(k)]
+    nodes = [nodes[:, j] for j in range(k)]
+    for top in range(k - 1, 0, -1):
+        for j in range(top):
+            swap = s[j] > s[j + 1]
+            if not swap.any():
+                continue
+            for column in (s, nodes):
+                low = np.where(swap, column[j + 1], column[j])
+                column[j + 1] = np.where(swap, column[j], column[j + 1])
+                column[j] = low
+            low = np.where(swap[:, None], X[j + 1], X[j])
+            X[j + 1] = np.where(swap[:, None], X[j], X[j + 1])
+            X[j] = low
+    return np.stack(s, axis=1), np.stack(X, axis=1), np.stack(nodes, axis=1)
 
 
 def _layer_pieces(mesh: Mesh, axis: int, position: float, lower_end: bool, cells: np.ndarray,
