@@ -151,15 +151,21 @@ class _HexCells:
             e.append([(((X[a][k] + X[b][k]) + X[c][k]) + X[d][k]) / 4.0 - centre[k] for k in range(3)])
             v.append((((v[a] + v[b]) + v[c]) + v[d]) / 4.0)
         dv = [x - vm for x in v]
+        negative = {}  # -dv where a cross product is taken the other way round
         crosses = {}
 
-        def cross(i, k):  # e_i x e_k, each pair formed once per chunk
-            if (k, i) in crosses:
-                return tuple(-x for x in crosses[k, i])
+        def cross(i, k):  # e_i x e_k (low vertex first), each pair formed once per chunk
             if (i, k) not in crosses:
                 p, q = e[i], e[k]
                 crosses[i, k] = (p[1] * q[2] - p[2] * q[1], p[2] * q[0] - p[0] * q[2], p[0] * q[1] - p[1] * q[0])
             return crosses[i, k]
+
+        def term(value, i, k):  # (dv_value, e_i x e_k) as (factor, cross) with the pair in low-first order
+            if i < k:
+                return dv[value], cross(i, k)
+            if value not in negative:
+                negative[value] = -dv[value]
+            return negative[value], cross(k, i)
 
         n = conn.shape[0]
         weights = np.empty((len(tets), n))
@@ -168,11 +174,13 @@ class _HexCells:
         corner_known = np.zeros((8, n), dtype=bool)
         for t, (a, b, f) in enumerate(tets):
             # tetrahedron (a, b, f, m) from m: adj(E) dv = dv_a (e_b x e_f) + dv_b (e_f x e_a) + dv_f (e_a x e_b)
-            bf, fa, ab = cross(b, f), cross(f, a), cross(a, b)
-            gx = dv[a] * bf[0] + dv[b] * fa[0] + dv[f] * ab[0]
-            gy = dv[a] * bf[1] + dv[b] * fa[1] + dv[f] * ab[1]
-            gz = dv[a] * bf[2] + dv[b] * fa[2] + dv[f] * ab[2]
+            (ua, bf), (ub, fa), (uf, ab) = term(a, b, f), term(b, f, a), term(f, a, b)
+            gx = ua * bf[0] + ub * fa[0] + uf * ab[0]
+            gy = ua * bf[1] + ub * fa[1] + uf * ab[1]
+            gz = ua * bf[2] + ub * fa[2] + uf * ab[2]
             det = e[a][0] * bf[0] + e[a][1] * bf[1] + e[a][2] * bf[2]
+            if b > f:
+                det = -det
             measure = np.abs(det) / 6.0
             w = np.sqrt(gx * gx + gy * gy + gz * gz) / 6.0
             w[det == 0] = 0.0

@@ -140,23 +140,24 @@ def _sorted_corners(s: np.ndarray, X: np.ndarray, nodes: np.ndarray) -> tuple:
     By adjacent exchanges (bubble sort: stable, and a sorting network for these few columns),
     the corners' coordinates and nodes moving with their ``s``: no per-row argsort and gathers.
     """
-    k = s.shape[1]
-    s = [s[:, j] for j in range(k)]
-    X = [X[:, j] for j in range(k)]
-    nodes = [nodes[:, j] for j in range(k)]
+    k, q = s.shape[1], X.shape[2]
+    columns = [[s[:, j] for j in range(k)], [nodes[:, j] for j in range(k)]]
+    columns += [[X[:, j, a] for j in range(k)] for a in range(q)]
+    s = columns[0]
     for top in range(k - 1, 0, -1):
         for j in range(top):
             swap = s[j] > s[j + 1]
             if not swap.any():
                 continue
-            for column in (s, nodes):
+            for column in columns:
                 low = np.where(swap, column[j + 1], column[j])
                 column[j + 1] = np.where(swap, column[j], column[j + 1])
                 column[j] = low
-            low = np.where(swap[:, None], X[j + 1], X[j])
-            X[j + 1] = np.where(swap[:, None], X[j], X[j + 1])
-            X[j] = low
-    return np.stack(s, axis=1), np.stack(X, axis=1), np.stack(nodes, axis=1)
+    X = np.empty(X.shape)
+    for a in range(q):
+        for j in range(k):
+            X[:, j, a] = columns[2 + a][j]
+    return np.stack(s, axis=1), X, np.stack(columns[1], axis=1)
 
 
 def _layer_pieces(mesh: Mesh, axis: int, position: float, lower_end: bool, cells: np.ndarray,
