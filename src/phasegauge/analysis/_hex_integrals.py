@@ -171,7 +171,6 @@ class _HexCells:
         weights = np.empty((len(tets), n))
         volumes = np.empty((len(tets), n))
         mixed = np.zeros(n)
-        corner_known = np.zeros((8, n), dtype=bool)
         for t, (a, b, f) in enumerate(tets):
             # tetrahedron (a, b, f, m) from m: adj(E) dv = dv_a (e_b x e_f) + dv_b (e_f x e_a) + dv_f (e_a x e_b)
             (ua, bf), (ub, fa), (uf, ab) = term(a, b, f), term(b, f, a), term(f, a, b)
@@ -182,23 +181,21 @@ class _HexCells:
             if b > f:
                 det = -det
             measure = np.abs(det) / 6.0
-            w = np.sqrt(gx * gx + gy * gy + gz * gz) / 6.0
-            w[det == 0] = 0.0
-            weights[t] = w
+            weights[t] = np.sqrt(gx * gx + gy * gy + gz * gz)
             volumes[t] = measure
             s = ((v[a] + v[b]) + v[f]) + vm
             q = ((v[a] * v[a] + v[b] * v[b]) + v[f] * v[f]) + vm * vm
             mixed += measure * (s * (4.0 - s) + s - q)
-            varying = w > 0
-            for corner in (a, b, f):
-                if corner < 8:
-                    corner_known[corner] |= varying
+        weights /= 6.0
+        weights[volumes == 0] = 0.0  # a flat tetrahedron has no gradient (as the split's)
         self.mixed += float(mixed.sum()) / 20.0
         self.total_gradient += float(weights.sum())
         self.count += len(tets) * n
+        varying = weights > 0
         for q in range(8):
-            self.known[ids[q][corner_known[q]]] = True
-        some = np.any(weights > 0, axis=0)
+            rows = [t for t, tet in enumerate(tets) if q in tet]
+            self.known[ids[q][varying[rows].any(axis=0)]] = True
+        some = varying.any(axis=0)
         for q in range(8):
             self.need[ids[q][some]] = True
         # band volume: whole cells inside, tetrahedra of the cells a band edge crosses
