@@ -14,7 +14,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from ..model._grouping import index_dtype
+from ..model._grouping import _bits, _sort_order, index_dtype
 from ..model.corners import cell_extent, corner_mean
 from ..model.mesh import Mesh
 from ..model.simplices import needs_centres, split_cells
@@ -237,12 +237,13 @@ def _build_sections(mesh: Mesh, axis: int, positions: np.ndarray, lower_ends: np
         # each cut edge once: the pieces of a plane share them. Numbered in the order the
         # pieces first use them, so the pieces read their corner values nearly in order
         start, end, t = start.ravel(), end.ravel(), t.ravel()
-        key = start * np.int64(max(int(start.max(initial=0)), int(end.max(initial=0))) + 1) + end
-        order = np.argsort(key, kind="stable")
+        span = max(int(start.max(initial=0)), int(end.max(initial=0))) + 1
+        # a stable argsort of the edge keys, by one packed sort (_sort_order: the same permutation)
+        order, key = _sort_order(start.astype(np.int64) * np.int64(span) + end, _bits(span * span))
         distinct = np.ones(key.size, dtype=bool)
-        distinct[1:] = key[order[1:]] != key[order[:-1]]
+        distinct[1:] = key[1:] != key[:-1]
         first = order[distinct]  # where each cut edge is used first, in key order
-        by_use = np.argsort(first)
+        by_use = _sort_order(first.astype(np.int64), _bits(key.size))[0]  # distinct: any sort orders alike
         number = np.empty(first.size, dtype=np.int64)
         number[by_use] = np.arange(first.size)
         cut = np.empty(key.size, dtype=np.int64)
