@@ -95,9 +95,9 @@ def _plane_pieces(mesh: Mesh, axis: int, position: float, lower_end: bool, cells
     crossed = (below > 0) & (below < dim + 1)
     others = [a for a in range(dim) if a != axis]
     nodes, parent, s, below = nodes[crossed], parent[crossed], s[crossed], below[crossed]
+    s, nodes = _sorted_corners(s, nodes)
     X = split.centre_means(mesh.coordinates[:, others])[nodes]
     nodes = np.where(nodes >= mesh.n_points, nodes - mesh.n_points + first_added, nodes)
-    s, X, nodes = _sorted_corners(s, X, nodes)
 
     def case(k):
         # the simplices with k corners below the plane, gathered once for all their edges
@@ -134,30 +134,24 @@ def _plane_pieces(mesh: Mesh, axis: int, position: float, lower_end: bool, cells
     return measures, np.concatenate(parents), start, end, t, centres
 
 
-def _sorted_corners(s: np.ndarray, X: np.ndarray, nodes: np.ndarray) -> tuple:
+def _sorted_corners(s: np.ndarray, nodes: np.ndarray) -> tuple:
     """Each simplex's corners in increasing ``s``, ties in corner order (as a stable argsort).
 
     By adjacent exchanges (bubble sort: stable, and a sorting network for these few columns),
-    the corners' coordinates and nodes moving with their ``s``: no per-row argsort and gathers.
+    the nodes moving with their ``s``: no per-row argsort and gathers.
     """
-    k, q = s.shape[1], X.shape[2]
-    columns = [[s[:, j] for j in range(k)], [nodes[:, j] for j in range(k)]]
-    columns += [[X[:, j, a] for j in range(k)] for a in range(q)]
-    s = columns[0]
+    k = s.shape[1]
+    s, nodes = [s[:, j] for j in range(k)], [nodes[:, j] for j in range(k)]
     for top in range(k - 1, 0, -1):
         for j in range(top):
             swap = s[j] > s[j + 1]
             if not swap.any():
                 continue
-            for column in columns:
+            for column in (s, nodes):
                 low = np.where(swap, column[j + 1], column[j])
                 column[j + 1] = np.where(swap, column[j], column[j + 1])
                 column[j] = low
-    X = np.empty(X.shape)
-    for a in range(q):
-        for j in range(k):
-            X[:, j, a] = columns[2 + a][j]
-    return np.stack(s, axis=1), X, np.stack(columns[1], axis=1)
+    return np.stack(s, axis=1), np.stack(nodes, axis=1)
 
 
 def _layer_pieces(mesh: Mesh, axis: int, position: float, lower_end: bool, cells: np.ndarray,
