@@ -155,6 +155,8 @@ class _HexCells:
             e.append([(((X[a][k] + X[b][k]) + X[c][k]) + X[d][k]) / 4.0 - centre[k] for k in range(3)])
             v.append((((v[a] + v[b]) + v[c]) + v[d]) / 4.0)
         dv = [x - vm for x in v]
+        v2 = [x * x for x in v]  # squares of the vertex values, for int c^2
+        vm2 = vm * vm
         negative = {}  # -dv where a cross product is taken the other way round
         crosses = {}
 
@@ -188,7 +190,7 @@ class _HexCells:
             weights[t] = np.sqrt(gx * gx + gy * gy + gz * gz)
             volumes[t] = measure
             s = ((v[a] + v[b]) + v[f]) + vm
-            q = ((v[a] * v[a] + v[b] * v[b]) + v[f] * v[f]) + vm * vm
+            q = ((v2[a] + v2[b]) + v2[f]) + vm2
             mixed += measure * (s * (4.0 - s) + s - q)
         weights /= 6.0
         weights[volumes == 0] = 0.0  # a flat tetrahedron has no gradient (as the split's)
