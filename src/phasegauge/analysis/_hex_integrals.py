@@ -1,13 +1,14 @@
-"""Width integrals on coned hexahedra, cell by cell: the 24 tetrahedra formed from the corners.
+"""Width integrals on coned hexahedra, cell by cell: the split's tetrahedra formed from the corners.
 
-A hexahedron whose six faces all get a centre in the conforming split
-(:func:`phasegauge.model.simplices.split_cells`: each face bent, or cut along different
-diagonals by its two cells; every face of a jittered or curvilinear hexahedral mesh) is
-split into 24 tetrahedra, one per face edge: (edge start, edge end, face centre, cell
-centre), the centres being their corners' means in coordinates and values alike. Those
-tetrahedra are fixed by the cell's own eight corners, so their integrals need no split
-arrays (no vertex ids, owners, shared face centres or concatenations): this module forms
-them per chunk of cells from the gathered corners, in cache.
+A hexahedron the conforming split (:func:`phasegauge.model.simplices.split_cells`) cones
+from its centre (a face bent, or cut along different diagonals by its two cells: every inner
+cell of a jittered or curvilinear hexahedral mesh) is split into tetrahedra joined to the cell
+centre: four per face that gets a face centre (edge start, edge end, face centre), two per face
+cut along the diagonal its table uses (a flat boundary face, say). The centres are their
+corners' means in coordinates and values alike. Those tetrahedra are fixed by the cell's own
+eight corners and its face code (which faces get a centre, worked out once per mesh), so their
+integrals need no split arrays (no vertex ids, owners, shared face centres or concatenations):
+this module forms them per chunk of cells of one face code from the gathered corners, in cache.
 
 What is integrated, per tetrahedron t of volume V_t with linear c:
 
@@ -16,19 +17,23 @@ What is integrated, per tetrahedron t of volume V_t with linear c:
 * int |grad c| = V_t |grad c| = |adj(E) dv| / 6, E the edge vectors from the cell centre and
   dv the value differences (Cramer's rule: the determinant cancels, no division);
 * the band volume of 0.05 < c < 0.95: a cell whose corner values all lie inside the band adds
-  its volume (the sum of its 24 tetrahedra: the exact volume of the trilinear hexahedron), a
-  cell they all lie outside of on one side adds nothing; only the cells a band edge crosses
-  are integrated tetrahedron by tetrahedron (the centres' values lie between the corners', so
-  the corner extremes decide);
+  its volume (the sum of its tetrahedra), a cell they all lie outside of on one side adds
+  nothing; only the cells a band edge crosses are integrated tetrahedron by tetrahedron (the
+  centres' values lie between the corners', so the corner extremes decide);
 * the moments of the signed distance, weighted by |grad c|, with the distance at a centre the
   mean of its corners' (as :func:`._signed_distance._vertex_distances` gives it): a cell counts
   when the distance is known at all eight corners.
 
-The tetrahedra, their vertices and the formulas are those of the split, so every integral equals
-the split's up to round-off (the centres are summed in corner order here, in point-number order
-there; relative differences about 1e-15, checked in ``tests/analysis/test_hex_integrals.py``).
-Cells the split cuts by its 6-tetrahedra table (flat faces cut alike from both sides) or cones
-with some faces not centred go through the split itself (:class:`._width_integrals._SplitBand`).
+Which cells, and the error: the criterion is the split's own, unchanged. A face is flat when
+the triple product of its corners' offsets from its first corner (six times the volume of the
+tetrahedron they span) is at most 1e-10 of the cube of its diagonal from that corner;
+a hexahedron all of whose faces are flat and cut alike by both of their cells takes the
+6-tetrahedra table and goes through the split itself (:class:`._width_integrals._SplitBand`);
+every other hexahedron is integrated here over exactly the split's tetrahedra. No face is
+treated as flatter than the split treats it, so the path adds no discretisation error: the
+integrals equal the split's up to round-off (the centres are summed in corner order here, in
+point-number order there; relative differences about 1e-15, at most 1e-12 in
+``tests/analysis/test_hex_integrals.py``).
 """
 
 from __future__ import annotations

@@ -303,7 +303,8 @@ def interface_metrics(mesh: Mesh, indicator, *, level: float = 0.5, contour: Con
     Hexahedra the split cones (a face bent, or cut two ways by its cells) are
     integrated cell by cell over the split's own 24 tetrahedra, so the result
     is the split's to round-off; the 6-tetrahedra table is taken only where
-    every face is flat to 1e-10 of its size cubed and cut alike from both
+    every face is flat (its corners spanning a volume below 1e-10 of its
+    diagonal cubed) and cut alike from both
     sides (no looser flatness, so no added error).
     Cells whose corners all lie within 1e-6 of 0 or of 1 are skipped; the
     second moment is taken out to max(10 eps, 4 h) from the contour (the
