@@ -272,3 +272,16 @@ def test_median_is_numpy_median(n):
     for values in (rng.random(n), np.round(rng.random(n), 1), np.zeros(n), np.sort(rng.normal(size=n)),
                    np.where(rng.random(n) < 0.7, 1.0, rng.random(n)), np.tile(rng.random(64), n // 64 + 1)[:n]):
         assert _median(values) == np.median(values)
+
+
+@pytest.mark.parametrize("k", [3, 4])
+def test_section_corners_in_the_order_of_a_stable_argsort(k):
+    # the exchange network orders each simplex's corners as numpy's stable argsort does, ties
+    # (shared offsets from the plane) kept in corner order, the nodes moving along
+    rng = np.random.default_rng(k)
+    s = rng.choice([-1.0, -0.5, 0.0, 0.25, 0.5], size=(3000, k))
+    nodes = rng.integers(0, 10 ** 6, (3000, k))
+    order = np.argsort(s, axis=1, kind="stable")
+    got = _section_planes._sorted_corners(s, nodes)
+    assert np.array_equal(got[0], np.take_along_axis(s, order, axis=1))
+    assert np.array_equal(got[1], np.take_along_axis(nodes, order, axis=1))

@@ -14,7 +14,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from ..model._grouping import index_dtype
+from ..model._grouping import _bits, _sort_order, index_dtype
 from ..model.corners import cell_extent, corner_mean
 from ..model.mesh import Mesh
 from ..model.simplices import needs_centres, split_cells
@@ -88,17 +88,16 @@ def _plane_pieces(mesh: Mesh, axis: int, position: float, lower_end: bool, cells
     dim = mesh.dimension
     split = split_cells(mesh, cells)
     nodes, parent, centres = split.simplices, split.owner, [corners for _, corners in split.centres]
-    X = split.corner_values(mesh.coordinates)
-    s = X[:, :, axis] - position
+    # the offsets from the plane first (one coordinate), the in-plane corners of the crossed
+    # simplices only: the same numbers as gathering all corners (centres are corner means)
+    s = split.centre_means(mesh.coordinates[:, axis])[nodes] - position
     below = np.count_nonzero(s <= 0 if lower_end else s < 0, axis=1)
     crossed = (below > 0) & (below < dim + 1)
     others = [a for a in range(dim) if a != axis]
-    X, nodes, parent, s, below = X[crossed][:, :, others], nodes[crossed], parent[crossed], s[crossed], below[crossed]
+    nodes, parent, s, below = nodes[crossed], parent[crossed], s[crossed], below[crossed]
+    s, nodes = _sorted_corners(s, nodes)
+    X = split.centre_means(mesh.coordinates[:, others])[nodes]
     nodes = np.where(nodes >= mesh.n_points, nodes - mesh.n_points + first_added, nodes)
-    order = np.argsort(s, axis=1, kind="stable")
-    s = np.take_along_axis(s, order, axis=1)
-    X = np.take_along_axis(X, order[:, :, None], axis=1)
-    nodes = np.take_along_axis(nodes, order, axis=1)
 
     def case(k):
         # the simplices with k corners below the plane, gathered once for all their edges
@@ -133,6 +132,26 @@ def _plane_pieces(mesh: Mesh, axis: int, position: float, lower_end: bool, cells
         d2 = X[:, 2] - X[:, 0]
         measures = 0.5 * np.abs(d1[:, 0] * d2[:, 1] - d1[:, 1] * d2[:, 0])
     return measures, np.concatenate(parents), start, end, t, centres
+
+
+def _sorted_corners(s: np.ndarray, nodes: np.ndarray) -> tuple:
+    """Each simplex's corners in increasing ``s``, ties in corner order (as a stable argsort).
+
+    By adjacent exchanges (bubble sort: stable, and a sorting network for these few columns),
+    the nodes moving with their ``s``: no per-row argsort and gathers.
+    """
+    k = s.shape[1]
+    s, nodes = [s[:, j] for j in range(k)], [nodes[:, j] for j in range(k)]
+    for top in range(k - 1, 0, -1):
+        for j in range(top):
+            swap = s[j] > s[j + 1]
+            if not swap.any():
+                continue
+            for column in (s, nodes):
+                low = np.where(swap, column[j + 1], column[j])
+                column[j + 1] = np.where(swap, column[j], column[j + 1])
+                column[j] = low
+    return np.stack(s, axis=1), np.stack(nodes, axis=1)
 
 
 def _layer_pieces(mesh: Mesh, axis: int, position: float, lower_end: bool, cells: np.ndarray,
@@ -212,12 +231,13 @@ def _build_sections(mesh: Mesh, axis: int, positions: np.ndarray, lower_ends: np
         # each cut edge once: the pieces of a plane share them. Numbered in the order the
         # pieces first use them, so the pieces read their corner values nearly in order
         start, end, t = start.ravel(), end.ravel(), t.ravel()
-        key = start * np.int64(max(int(start.max(initial=0)), int(end.max(initial=0))) + 1) + end
-        order = np.argsort(key, kind="stable")
+        span = max(int(start.max(initial=0)), int(end.max(initial=0))) + 1
+        # a stable argsort of the edge keys, by one packed sort (_sort_order: the same permutation)
+        order, key = _sort_order(start.astype(np.int64) * np.int64(span) + end, _bits(span * span))
         distinct = np.ones(key.size, dtype=bool)
-        distinct[1:] = key[order[1:]] != key[order[:-1]]
+        distinct[1:] = key[1:] != key[:-1]
         first = order[distinct]  # where each cut edge is used first, in key order
-        by_use = np.argsort(first)
+        by_use = _sort_order(first.astype(np.int64), _bits(key.size))[0]  # distinct: any sort orders alike
         number = np.empty(first.size, dtype=np.int64)
         number[by_use] = np.arange(first.size)
         cut = np.empty(key.size, dtype=np.int64)

@@ -17,8 +17,10 @@ def _nearest_plane_distance(points, rows, cent, normal, half, bound):
 
     # a sliding-midpoint tree (not median-balanced): about 1.5-1.9x faster queries here, since the
     # centroids lie on a surface; equidistant centroids may resolve to another element than with a
-    # balanced tree, which moved the second moment by 3e-11 relative on a 1M-cell grid
-    tree = cKDTree(cent, balanced_tree=False, compact_nodes=False)
+    # balanced tree, which moved the second moment by 3e-11 relative on a 1M-cell grid. Leaves of
+    # 64 (not 16): 1.9x faster queries from points near a dense contour (jittered hexahedra), the
+    # same elements found on the guarded triangle, tetrahedron and grid runs
+    tree = cKDTree(cent, leafsize=64, balanced_tree=False, compact_nodes=False)
     out = np.full(rows.size, np.nan)
     for lo in range(0, rows.size, _QUERY_CHUNK):  # each query is on its own: chunks change nothing
         at = points[rows[lo:lo + _QUERY_CHUNK]]

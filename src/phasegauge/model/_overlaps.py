@@ -61,13 +61,33 @@ def _overlaps(mesh) -> dict:
     for block in mesh.blocks:
         if len(block) < 2:
             continue
-        rows = sort_small_rows(np.asarray(block.connectivity))
-        _, starts = group_columns([rows[:, j] for j in range(rows.shape[1])])
-        duplicates += len(block) - int(starts.size)
+        duplicates += _repeated_rows(sort_small_rows(np.asarray(block.connectivity)))
     regular = mesh.regular_grid is not None
     crowded = 0 if regular else mesh._face_topology["crowded"]
     covered = 0 if regular or duplicates or crowded else _covered_boundary_faces(mesh)
     return {"duplicate_cells": duplicates, "crowded_faces": crowded, "covered_boundary_faces": covered}
+
+
+def _repeated_rows(rows: np.ndarray) -> int:
+    """Rows (sorted corner sets) equal to an earlier row, exactly.
+
+    A 64-bit mix of each row first (one sort of n integers): rows with distinct mixes differ, so
+    only the rows whose mix repeats (none on a valid mesh, a few by chance) are grouped column by
+    column. Grouping all rows by their k columns cost about 1 s on 1M hexahedra.
+    """
+    mix = np.zeros(rows.shape[0], dtype=np.uint64)
+    with np.errstate(over="ignore"):
+        for j in range(rows.shape[1]):
+            mix *= np.uint64(0x9E3779B97F4A7C15)
+            mix += rows[:, j].astype(np.uint64)
+            mix ^= mix >> np.uint64(29)
+    ordered = np.sort(mix)
+    repeats = ordered[1:][ordered[1:] == ordered[:-1]]
+    if repeats.size == 0:
+        return 0
+    rows = rows[np.isin(mix, repeats)]
+    _, starts = group_columns([rows[:, j] for j in range(rows.shape[1])])
+    return rows.shape[0] - int(starts.size)
 
 
 def _covered_boundary_faces(mesh, neighbours: int = 8) -> int:

@@ -436,13 +436,18 @@ def _split_centred_faces(pending: list, pieces: _Pieces) -> None:
     face_id = np.concatenate([p[3] for p in pending])
     # one centre per distinct face: the mesh's face numbering groups the two sides of a face;
     # the centre is the mean of its corners in sorted order (the same from either side)
-    first = np.zeros(int(face_id.max()) + 1, dtype=np.int64)
-    seen = np.zeros(first.size, dtype=bool)
-    seen[face_id] = True
-    first[face_id[::-1]] = np.arange(face_id.size - 1, -1, -1)
-    distinct = np.nonzero(seen)[0]
-    compact = np.cumsum(seen) - 1
-    centre = pieces.add_centres(sort_small_rows(faces[first[distinct]]))[compact[face_id]]
+    n_ids = int(face_id.max()) + 1
+    if 8 * face_id.size < n_ids:  # a few of the mesh's faces: sort them rather than sweep all ids
+        _, first, slot = np.unique(face_id, return_index=True, return_inverse=True)
+        centre = pieces.add_centres(sort_small_rows(faces[first]))[slot.ravel()]
+    else:
+        first = np.zeros(n_ids, dtype=np.int64)
+        seen = np.zeros(first.size, dtype=bool)
+        seen[face_id] = True
+        first[face_id[::-1]] = np.arange(face_id.size - 1, -1, -1)
+        distinct = np.nonzero(seen)[0]
+        compact = np.cumsum(seen) - 1
+        centre = pieces.add_centres(sort_small_rows(faces[first[distinct]]))[compact[face_id]]
     for i in range(4):
         pieces.add(np.column_stack([faces[:, i], faces[:, (i + 1) % 4], centre, apex]), own)
 

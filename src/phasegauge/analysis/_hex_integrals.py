@@ -1,0 +1,295 @@
+"""Width integrals on coned hexahedra, cell by cell: the split's tetrahedra formed from the corners.
+
+A hexahedron the conforming split (:func:`phasegauge.model.simplices.split_cells`) cones
+from its centre (a face bent, or cut along different diagonals by its two cells: every inner
+cell of a jittered or curvilinear hexahedral mesh) is split into tetrahedra joined to the cell
+centre: four per face that gets a face centre (edge start, edge end, face centre), two per face
+cut along the diagonal its table uses (a flat boundary face, say). The centres are their
+corners' means in coordinates and values alike. Those tetrahedra are fixed by the cell's own
+eight corners and its face code (which faces get a centre, worked out once per mesh), so their
+integrals need no split arrays (no vertex ids, owners, shared face centres or concatenations):
+this module forms them per chunk of cells of one face code from the gathered corners, in cache.
+
+What is integrated, per tetrahedron t of volume V_t with linear c:
+
+* int c (1 - c) = V_t (s (4 - s) + s - q) / 20, s and q the sums of the vertex values and of
+  their squares (exact for a linear c);
+* int |grad c| = V_t |grad c| = |adj(E) dv| / 6, E the edge vectors from the cell centre and
+  dv the value differences (Cramer's rule: the determinant cancels, no division);
+* the band volume of 0.05 < c < 0.95: a cell whose corner values all lie inside the band adds
+  its volume (the sum of its tetrahedra), a cell they all lie outside of on one side adds
+  nothing; only the cells a band edge crosses are integrated tetrahedron by tetrahedron (the
+  centres' values lie between the corners', so the corner extremes decide);
+* the moments of the signed distance, weighted by |grad c|, with the distance at a centre the
+  mean of its corners' (as :func:`._signed_distance._vertex_distances` gives it): a cell counts
+  when the distance is known at all eight corners.
+
+Which cells, and the error: the criterion is the split's own, unchanged. A face is flat when
+the triple product of its corners' offsets from its first corner (six times the volume of the
+tetrahedron they span) is at most 1e-10 of the cube of its diagonal from that corner;
+a hexahedron all of whose faces are flat and cut alike by both of their cells takes the
+6-tetrahedra table and goes through the split itself (:class:`._width_integrals._SplitBand`);
+every other hexahedron is integrated here over exactly the split's tetrahedra. No face is
+treated as flatter than the split treats it, so the path adds no discretisation error: the
+integrals equal the split's up to round-off (the centres are summed in corner order here, in
+point-number order there; relative differences about 1e-15, at most 1e-12 in
+``tests/analysis/test_hex_integrals.py``).
+"""
+
+from __future__ import annotations
+
+import numpy as np
+
+from ..model.cells import FACES
+from ..model.mesh import Mesh
+from ..model._grouping import index_dtype
+from ..model._split_tables import TABLE_DIAGONALS
+from ..model.simplices import _split_plan
+from ._signed_distance import _ContourGeometry, _signed_distance
+
+#: cells per chunk (the chunk's temporaries, about 150 arrays of this many floats, stay in cache)
+_CELL_CHUNK = 1 << 12
+#: band edges of ``interface_width``
+_LOW, _HIGH = 0.05, 0.95
+_HEX_FACES = FACES["hexahedron"]
+
+
+def coned_hexahedra(mesh: Mesh) -> list | None:
+    """Per block, (local rows, face codes) of the coned hexahedra; None if the mesh has none.
+
+    The code of a cell has bit j set when its face j (``FACES`` order) gets a centre in the
+    split (:func:`phasegauge.model.simplices._split_plan`, cached per mesh): 63 when all six do.
+    """
+    if mesh.dimension != 3 or not any(block.cell_type == "hexahedron" for block in mesh.blocks):
+        return None
+
+    def compute():  # kept with the mesh: 5 bytes per coned cell (int32 rows, uint8 codes)
+        out = []
+        empty = (np.zeros(0, np.int32), np.zeros(0, np.uint8))
+        for block, coned in zip(mesh.blocks, _split_plan(mesh)):
+            if block.cell_type != "hexahedron" or coned is None:
+                out.append(empty)
+                continue
+            rows = np.flatnonzero(coned.coned).astype(index_dtype(len(block)))
+            codes = np.zeros(rows.size, np.uint8)
+            for j in range(6):
+                codes |= coned.centred[rows, j].astype(np.uint8) << j
+            out.append((rows, codes))
+        return out if any(rows.size for rows, _ in out) else None
+
+    return mesh.memo("coned_hexahedra", compute)
+
+
+def _band_of(measures: np.ndarray, values: list) -> float:
+    from ._width_integrals import _band_volume
+
+    return _band_volume(measures, values)
+
+
+def _tetrahedra(code: int) -> tuple:
+    """The tetrahedra of a coned hexahedron with face code ``code``, as vertex triples joined to the
+    cell centre: corners 0-7, face centres 8-13. A centred face gives four (edge and face centre),
+    another face two, cut along the diagonal the table cuts it along (as the split does)."""
+    out = []
+    for j, face in enumerate(_HEX_FACES):
+        if code >> j & 1:
+            out += [(face[i], face[(i + 1) % 4], 8 + j) for i in range(4)]
+        elif TABLE_DIAGONALS["hexahedron"][j] == (face[0], face[2]):
+            out += [(face[0], face[1], face[2]), (face[0], face[2], face[3])]
+        else:
+            out += [(face[1], face[2], face[3]), (face[1], face[3], face[0])]
+    return tuple(out)
+
+
+class _HexCells:
+    """Width integrals over the tetrahedra of coned hexahedra, cell by cell (see the module notes).
+
+    Parameters
+    ----------
+    mesh : Mesh
+    clipped : ndarray of shape (n_points,)
+        c at the points, clipped to [0, 1].
+    rows : list of (ndarray, ndarray)
+        Per block, the local rows of the cells to integrate and their face codes
+        (:func:`coned_hexahedra`).
+    low, high : ndarray of shape (n_cells,)
+        Corner extremes of ``clipped`` per cell (decide which cells a band edge crosses).
+
+    Attributes
+    ----------
+    count : int
+        Number of tetrahedra.
+    band, mixed, total_gradient : float
+        As :class:`._width_integrals._SplitBand`.
+    known : ndarray of bool, shape (n_points,)
+        Corners of tetrahedra where c is not constant.
+    need : ndarray of bool, shape (n_points,)
+        Corners of cells with such a tetrahedron (their distances make the centres').
+    """
+
+    def __init__(self, mesh: Mesh, clipped: np.ndarray, rows: list, low: np.ndarray, high: np.ndarray):
+        self.mesh = mesh
+        columns = [np.ascontiguousarray(mesh.coordinates[:, i]) for i in range(3)]
+        self.known = np.zeros(mesh.n_points, dtype=bool)
+        self.need = np.zeros(mesh.n_points, dtype=bool)
+        self.band = self.mixed = self.total_gradient = 0.0
+        self.chunks = []  # (tetrahedra, corner ids (n, 8), weights (n_tetrahedra, n))
+        self.count = 0
+        for block, start, (local, codes) in zip(mesh.blocks, mesh.block_offsets[:-1], rows):
+            if local.size == 0:
+                continue
+            counts = np.bincount(codes, minlength=64)
+            for code in np.flatnonzero(counts):  # cells of one face code at a time (few codes)
+                chosen = local if counts[code] == local.size else local[codes == code]
+                tets = _tetrahedra(int(code))
+                for lo in range(0, chosen.size, _CELL_CHUNK):
+                    part = chosen[lo:lo + _CELL_CHUNK]
+                    cells = start + part
+                    self._chunk(tets, block.connectivity[part], clipped, columns, low[cells], high[cells])
+
+    def _chunk(self, tets, conn, values, columns, low, high) -> None:
+        ids = [conn[:, q] for q in range(8)]
+        v = [values[i] for i in ids]
+        X = [[col[i] for col in columns] for i in ids]
+        centre = [(((((((X[0][d] + X[1][d]) + X[2][d]) + X[3][d]) + X[4][d]) + X[5][d]) + X[6][d]) + X[7][d]) / 8.0
+                  for d in range(3)]
+        vm = (((((((v[0] + v[1]) + v[2]) + v[3]) + v[4]) + v[5]) + v[6]) + v[7]) / 8.0
+        # vertices from the cell centre: corners 0-7, then the face centres 8-13
+        e = [[X[q][d] - centre[d] for d in range(3)] for q in range(8)]
+        for a, b, c, d in _HEX_FACES:
+            e.append([(((X[a][k] + X[b][k]) + X[c][k]) + X[d][k]) / 4.0 - centre[k] for k in range(3)])
+            v.append((((v[a] + v[b]) + v[c]) + v[d]) / 4.0)
+        dv = [x - vm for x in v]
+        v2 = [x * x for x in v]  # squares of the vertex values, for int c^2
+        vm2 = vm * vm
+        negative = {}  # -dv where a cross product is taken the other way round
+        crosses = {}
+
+        def cross(i, k):  # e_i x e_k (low vertex first), each pair formed once per chunk
+            if (i, k) not in crosses:
+                p, q = e[i], e[k]
+                crosses[i, k] = (p[1] * q[2] - p[2] * q[1], p[2] * q[0] - p[0] * q[2], p[0] * q[1] - p[1] * q[0])
+            return crosses[i, k]
+
+        def term(value, i, k):  # (dv_value, e_i x e_k) as (factor, cross) with the pair in low-first order
+            if i < k:
+                return dv[value], cross(i, k)
+            if value not in negative:
+                negative[value] = -dv[value]
+            return negative[value], cross(k, i)
+
+        n = conn.shape[0]
+        weights = np.empty((len(tets), n))
+        volumes = np.empty((len(tets), n))
+        mixed = np.zeros(n)
+        for t, (a, b, f) in enumerate(tets):
+            # tetrahedron (a, b, f, m) from m: adj(E) dv = dv_a (e_b x e_f) + dv_b (e_f x e_a) + dv_f (e_a x e_b)
+            (ua, bf), (ub, fa), (uf, ab) = term(a, b, f), term(b, f, a), term(f, a, b)
+            gx = ua * bf[0] + ub * fa[0] + uf * ab[0]
+            gy = ua * bf[1] + ub * fa[1] + uf * ab[1]
+            gz = ua * bf[2] + ub * fa[2] + uf * ab[2]
+            det = e[a][0] * bf[0] + e[a][1] * bf[1] + e[a][2] * bf[2]
+            if b > f:
+                det = -det
+            measure = np.abs(det) / 6.0
+            weights[t] = np.sqrt(gx * gx + gy * gy + gz * gz)
+            volumes[t] = measure
+            s = ((v[a] + v[b]) + v[f]) + vm
+            q = ((v2[a] + v2[b]) + v2[f]) + vm2
+            mixed += measure * (s * (4.0 - s) + s - q)
+        weights /= 6.0
+        weights[volumes == 0] = 0.0  # a flat tetrahedron has no gradient (as the split's)
+        self.mixed += float(mixed.sum()) / 20.0
+        self.total_gradient += float(weights.sum())
+        self.count += len(tets) * n
+        varying = weights > 0
+        for q in range(8):
+            rows = [t for t, tet in enumerate(tets) if q in tet]
+            self.known[ids[q][varying[rows].any(axis=0)]] = True
+        some = varying.any(axis=0)
+        for q in range(8):
+            self.need[ids[q][some]] = True
+        # band volume: whole cells inside, tetrahedra of the cells a band edge crosses
+        inside = (low > _LOW) & (high < _HIGH)
+        if inside.any():
+            self.band += float(volumes[:, inside].sum())
+        cut = np.flatnonzero(~inside & (high >= _LOW) & (low <= _HIGH))
+        if cut.size:  # all tetrahedra of these cells in one pass
+            vc = [x[cut] for x in v]
+            self.band += _band_of(volumes[:, cut].ravel(), [np.concatenate([vc[a] for a, _, _ in tets]),
+                                                             np.concatenate([vc[b] for _, b, _ in tets]),
+                                                             np.concatenate([vc[f] for _, _, f in tets]),
+                                                             np.tile(vm[cut], len(tets))])
+        self.chunks.append((tets, conn, weights))
+
+    def moments(self, dist: np.ndarray) -> np.ndarray:
+        """(m0, m1, m2) over the tetrahedra of cells whose eight corner distances are known."""
+        m = np.zeros(3)
+        for tets, conn, weights in self.chunks:
+            d = [dist[conn[:, q]] for q in range(8)]
+            dm = (((((((d[0] + d[1]) + d[2]) + d[3]) + d[4]) + d[5]) + d[6]) + d[7]) / 8.0
+            ok = np.isfinite(dm)
+            if not ok.any():
+                continue
+            d = [x[ok] for x in d]
+            dm = dm[ok]
+            w_all = weights[:, ok]
+            d += [(((d[a] + d[b]) + d[c]) + d[e]) / 4.0 for a, b, c, e in _HEX_FACES]
+            for t, (a, b, f) in enumerate(tets):
+                w = w_all[t]
+                total = ((d[a] + d[b]) + d[f]) + dm
+                squares = ((d[a] * d[a] + d[b] * d[b]) + d[f] * d[f]) + dm * dm
+                m[0] += float(w.sum())
+                m[1] += float((w * total).sum()) / 4.0
+                m[2] += float((w * (total * total + squares)).sum()) / 20.0
+        return m
+
+
+class _HexBand:
+    """Width integrals on a mesh with coned hexahedra: those cell by cell, the rest on the split.
+
+    Same attributes and methods as :class:`._width_integrals._SplitBand`.
+    """
+
+    def __init__(self, mesh: Mesh, clipped: np.ndarray, active: np.ndarray, rows: list, low, high):
+        from ._width_integrals import _SplitBand
+
+        self.mesh, self.values = mesh, clipped
+        mine = []
+        rest = active.copy()
+        for (local, codes), start in zip(rows, mesh.block_offsets[:-1]):
+            keep = active[start + local]
+            mine.append((local[keep], codes[keep]))
+            rest[start + local] = False
+        self.cells = _HexCells(mesh, clipped, mine, low, high)
+        self.rest = _SplitBand(mesh, clipped, rest) if rest.any() else None
+        self.count = self.cells.count + (self.rest.count if self.rest else 0)
+        self.band = self.cells.band + (self.rest.band if self.rest else 0.0)
+        self.mixed = self.cells.mixed + (self.rest.mixed if self.rest else 0.0)
+        self.total_gradient = self.cells.total_gradient + (self.rest.total_gradient if self.rest else 0.0)
+        self._rest_dist = None
+
+    def distances(self, geometry: _ContourGeometry, level: float, bound: float) -> np.ndarray:
+        """Signed distances at the mesh points the cells need (NaN elsewhere and beyond ``bound``)."""
+        need = self.cells.need
+        dist = np.full(self.mesh.n_points, np.nan)
+        if self.rest is not None:
+            self._rest_dist = self.rest.distances(geometry, level, bound)
+            dist = self._rest_dist[:self.mesh.n_points].copy()
+            need = need & ~np.isfinite(dist)
+        used = np.flatnonzero(need)
+        dist[used] = _signed_distance(self.mesh.coordinates[used], self.values[used], geometry,
+                                      self.mesh.plane_axes, level, bound)
+        return dist
+
+    def moments(self, dist: np.ndarray) -> tuple[float, float, float]:
+        m = self.cells.moments(dist)
+        if self.rest is not None:
+            m += np.array(self.rest.moments(self._rest_dist))
+        return tuple(float(x) for x in m)
+
+    def at_points(self, dist: np.ndarray):
+        known = self.cells.known
+        if self.rest is not None:
+            known = known | self.rest.known[:self.mesh.n_points]
+        return self.values, dist, known

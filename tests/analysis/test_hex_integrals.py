@@ -1,0 +1,123 @@
+"""Width integrals on coned hexahedra, cell by cell, against the full split and an analytic profile.
+
+The cell-by-cell path (:mod:`phasegauge.analysis._hex_integrals`) forms the same 24 tetrahedra
+per cell as the conforming split (:func:`phasegauge.model.simplices.split_cells`), so it must
+give the split's integrals up to round-off (1e-12 relative); on a planar logistic profile every
+estimator returns 5.889 eps (Olsson & Kreiss 2005).
+"""
+
+import math
+
+import numpy as np
+import pytest
+
+import phasegauge.analysis._interface_width as width_module
+from phasegauge.analysis._hex_integrals import _HexBand, coned_hexahedra
+from phasegauge.analysis._width_integrals import _SplitBand
+from phasegauge.analysis.interface import METRIC_KEYS, interface_metrics, interface_profile_table
+from phasegauge.meshgen import grid_mesh
+from phasegauge.model.mesh import Mesh
+
+RTOL = 1e-12
+# logistic profile c = 1/2 (1 + tanh(n / (2 eps))) (Olsson & Kreiss 2005): band volume per area
+# over 0.05 < c < 0.95 is 2 eps ln 19 = 5.889 eps (REFERENCES.md [calc])
+BAND = 2 * math.log(19.0)
+
+
+def _sphere(mesh, cells_across=1.0, radius=0.3, n=None):
+    """Logistic profile about the box centre, eps = ``cells_across`` cells of n per side."""
+    n = n or round(mesh.n_points ** (1 / 3)) - 1
+    d = np.linalg.norm(mesh.coordinates - 0.5, axis=1)
+    return 0.5 * (1 + np.tanh((radius - d) / (2 * cells_across / n)))
+
+
+def _rotated_corners(mesh, every=2):
+    """The same grid with every ``every``-th cell listing its corners turned a quarter about z:
+    its faces are flat, but it cuts some of them along the other diagonal than its neighbours,
+    so the split gives those faces a centre and cones the cells (some with all six faces
+    centred, some with a few)."""
+    conn = mesh.blocks[0].connectivity.copy()
+    turn = np.array([1, 2, 3, 0, 5, 6, 7, 4])
+    conn[::every] = conn[::every][:, turn]
+    return Mesh(mesh.points, [("hexahedron", conn)])
+
+
+def _split_path(monkeypatch):
+    monkeypatch.setattr(width_module, "coned_hexahedra", lambda mesh: None)
+
+
+def _meshes():
+    return {"jittered": grid_mesh((10, 10, 10), kind="hexahedron", jitter=0.2, seed=5),
+            "turned": _rotated_corners(grid_mesh((10, 10, 10), kind="hexahedron")),
+            "turned_some": _rotated_corners(grid_mesh((10, 10, 10), kind="hexahedron"), every=7)}
+
+
+@pytest.mark.parametrize("name", ["jittered", "turned", "turned_some"])
+@pytest.mark.parametrize("cells_across", [1.0, 2.5])
+def test_cell_path_matches_the_full_split(monkeypatch, name, cells_across):
+    mesh = _meshes()[name]
+    coned = coned_hexahedra(mesh)
+    rows, codes = coned[0]
+    if name == "jittered":  # every inner face bent: every cell coned, on all six faces inside
+        assert rows.size == mesh.n_cells and (codes == 63).sum() == 8 ** 3
+    elif name == "turned":  # every face between a turned cell and another is cut two ways
+        assert rows.size == mesh.n_cells
+    else:  # some cells coned, the others cut by the table (the split handles those)
+        assert 0 < rows.size < mesh.n_cells
+    assert len(np.unique(codes)) > 1  # faces on the boundary or cut alike: two tetrahedra each
+    c = _sphere(mesh, cells_across)
+    work = width_module._Work(mesh, c, 0.5, None, None)
+    assert isinstance(work.integrals, _HexBand)
+    fast = interface_metrics(mesh, c)
+    fast_table = interface_profile_table(mesh, c)
+    _split_path(monkeypatch)
+    assert isinstance(width_module._Work(mesh, c, 0.5, None, None).integrals, _SplitBand)
+    slow = interface_metrics(mesh, c)
+    assert list(fast) == list(slow) == list(METRIC_KEYS)
+    for key in METRIC_KEYS:
+        assert fast[key] == pytest.approx(slow[key], rel=RTOL, abs=0, nan_ok=True), key
+    # the same points with known distances feed the local fits
+    slow_table = interface_profile_table(mesh, c)
+    assert np.array_equal(fast_table["n_samples"].to_numpy(), slow_table["n_samples"].to_numpy())
+    np.testing.assert_allclose(fast_table["width"].to_numpy(), slow_table["width"].to_numpy(), rtol=1e-9)
+
+
+def test_cell_path_integrals_match_the_split_one_by_one():
+    # the raw integrals, band volume, int c (1 - c), int |grad c| and the moments, each against the
+    # split's (the 24 tetrahedra per cell are the split's own)
+    mesh = _meshes()["jittered"]
+    c = np.clip(_sphere(mesh, 1.5), 0.0, 1.0)
+    from phasegauge.model.corners import corner_extremes
+
+    low, high = corner_extremes(mesh, c)
+    active = (high > 1e-6) & (low < 1 - 1e-6)
+    fast = _HexBand(mesh, c, active, coned_hexahedra(mesh), low, high)
+    slow = _SplitBand(mesh, c, active)
+    assert fast.count == slow.count
+    for name in ("band", "mixed", "total_gradient"):
+        assert getattr(fast, name) == pytest.approx(getattr(slow, name), rel=RTOL), name
+    # moments of a distance-like field known everywhere: the split takes centres as corner means
+    dist = mesh.coordinates[:, 0] - 0.1  # (off centre: m1 does not cancel to round-off)
+    slow_dist = slow.split.centre_means(dist)
+    np.testing.assert_allclose(fast.moments(dist), slow.moments(slow_dist), rtol=RTOL)
+
+
+@pytest.mark.parametrize("cells_across", [4, 8])
+def test_planar_logistic_profile_on_jittered_hexahedra(cells_across):
+    # every estimator returns the 5-95 % thickness 5.889 eps of the logistic profile (Olsson &
+    # Kreiss 2005); tolerances as for the other cell types (test_interface_width.py): the
+    # piecewise-linear interpolant adds about h^2 / 6 to the variance of dc/dn, and the jittered
+    # cells add their spread of sizes
+    nx = 40 if cells_across == 4 else 64
+    h = 1.0 / nx
+    mesh = grid_mesh((nx, 4, 4), [(0, 1), (0, 4 * h), (0, 4 * h)], kind="hexahedron", jitter=0.2, seed=7)
+    assert coned_hexahedra(mesh) is not None
+    width = cells_across * h
+    eps = width / BAND
+    c = 0.5 * (1 + np.tanh((mesh.coordinates[:, 0] - 0.5037) / (2 * eps)))
+    r = interface_metrics(mesh, c)
+    high = 0.08 if cells_across == 4 else 0.03
+    for key in ("interface_width", "width_threshold_free", "width_second_moment", "width_profile_median"):
+        assert -0.02 < r[key] / width - 1 < high, key
+    # dc/dn is a logistic density of variance pi^2 eps^2 / 3 (REFERENCES.md [calc])
+    assert 0.96 < r["interface_variance"] / (np.pi ** 2 * eps ** 2 / 3) < (1 + high) ** 2
