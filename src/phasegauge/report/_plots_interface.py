@@ -136,11 +136,16 @@ def plot_interface_snapshots(interfaces_by_step, *, bounds, axis_names=("x", "y"
         ax.set_ylabel(axis_names[1])
         legend_outside(ax)
     else:
+        from matplotlib.ticker import MaxNLocator
         from mpl_toolkits.mplot3d.art3d import Poly3DCollection
 
         cols = 2 if len(steps) == 4 else min(3, len(steps))  # no empty panel for the usual 4 snapshots
         rows = int(np.ceil(len(steps) / cols))
-        fig = new_figure(4.0 * cols, 3.8 * rows)
+        # fixed margins: each 3D panel keeps its labels inside its own box (a constrained layout of
+        # 3D axes costs more than drawing them)
+        fig = new_figure(4.0 * cols, 3.8 * rows, constrained=False)
+        fig.subplots_adjust(left=0.0, right=0.95, bottom=0.02, top=0.96 if not title else 0.91, wspace=0.1,
+                            hspace=0.12)
         for i, step in enumerate(steps):
             ax = fig.add_subplot(rows, cols, i + 1, projection="3d")
             points, elements = interfaces_by_step[step]
@@ -151,6 +156,8 @@ def plot_interface_snapshots(interfaces_by_step, *, bounds, axis_names=("x", "y"
             ax.set_xlim(lo[0], hi[0])
             ax.set_ylim(lo[1], hi[1])
             ax.set_zlim(lo[2], hi[2])
+            for axis in (ax.xaxis, ax.yaxis, ax.zaxis):  # about 3 ticks: each tick is costly to draw in 3D
+                axis.set_major_locator(MaxNLocator(nbins=2))
             ax.set_xlabel(axis_names[0], fontsize="small")
             ax.set_ylabel(axis_names[1], fontsize="small")
             ax.set_zlabel(axis_names[2] if len(axis_names) > 2 else "z", fontsize="small")
