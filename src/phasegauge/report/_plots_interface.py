@@ -145,7 +145,7 @@ def plot_interface_snapshots(interfaces_by_step, *, bounds, axis_names=("x", "y"
         # fixed margins: each 3D panel keeps its labels inside its own box (a constrained layout of
         # 3D axes costs more than drawing them)
         fig = new_figure(4.0 * cols, 3.8 * rows, constrained=False)
-        fig.subplots_adjust(left=0.0, right=0.95, bottom=0.02, top=0.96 if not title else 0.91, wspace=0.1,
+        fig.subplots_adjust(left=0.0, right=0.95, bottom=0.03, top=0.96 if not title else 0.91, wspace=0.1,
                             hspace=0.12)
         for i, step in enumerate(steps):
             ax = fig.add_subplot(rows, cols, i + 1, projection="3d")
