@@ -80,3 +80,61 @@ def test_face_owner_arithmetic_is_64_bit():
     _, row_starts = mesh._face_rows()
     rows = np.arange(8, dtype=np.int32)
     assert mesh._row_owners(rows, row_starts).dtype == np.int64
+
+
+def _exact_repeats(conn):
+    # reference: repeated corner sets counted with numpy's np.unique over rows (sorted rows)
+    return len(conn) - len(np.unique(np.sort(conn, axis=1), axis=0))
+
+
+@pytest.mark.parametrize("kind,dim", [("tetra", 3), ("triangle", 2)])
+@pytest.mark.parametrize("where", ["inside", "boundary", "apart"])
+def test_repeated_simplices_found_without_sorting_every_cell(kind, dim, where):
+    # the corner sort is skipped when no face is crowded and no two cells share two faces; a repeated
+    # simplex always shows as one of the two, wherever it sits (inside, on the boundary, or a lone
+    # cell repeated away from the rest)
+    from phasegauge.model._overlaps import cell_overlaps
+    from phasegauge.model.mesh import Mesh
+
+    m = meshgen.grid_mesh((3, 3, 3) if dim == 3 else (4, 4), kind=kind)
+    points, conn = m.points, m.blocks[0].connectivity
+    if where == "apart":
+        lone = points[conn[0]] + 5.0  # one simplex away from the mesh, stored twice
+        first = len(points)
+        points = np.vstack([points, lone])
+        extra = np.arange(first, first + conn.shape[1])[None, :]
+        conn = np.vstack([conn, extra, extra[:, ::-1]])
+    else:
+        pick = conn.shape[0] // 2 if where == "inside" else 0
+        conn = np.vstack([conn, conn[pick:pick + 1, ::-1]])
+    found = cell_overlaps(Mesh(points, [(kind, conn)]))
+    assert found["duplicate_cells"] == _exact_repeats(conn) == 1, found
+
+
+def test_clean_simplex_meshes_report_no_repeats():
+    from phasegauge.meshgen import delaunay_mesh
+    from phasegauge.model._overlaps import cell_overlaps
+
+    for m in (meshgen.grid_mesh((4, 3, 3), kind="tetra", jitter=0.2, seed=2), delaunay_mesh(200, dim=2, seed=4)):
+        assert _exact_repeats(m.blocks[0].connectivity) == 0
+        assert cell_overlaps(m) == {"duplicate_cells": 0, "crowded_faces": 0, "covered_boundary_faces": 0}
+
+
+@pytest.mark.parametrize("dim", [2, 3])
+def test_barycentric_coordinates_match_a_linear_solve(dim):
+    # reference: numpy.linalg.solve of the (d x d) edge system, coordinate 0 as one minus the rest
+    from phasegauge.model._overlaps import _barycentric
+
+    rng = np.random.default_rng(7)
+    verts = rng.normal(size=(50, dim + 1, dim))
+    point = rng.normal(size=(50, dim))
+    lam, det = _barycentric(verts, point)
+    base = verts[:, 1:, :] - verts[:, :1, :]
+    ref = np.linalg.solve(np.transpose(base, (0, 2, 1)), (point - verts[:, 0, :])[..., None])[..., 0]
+    assert np.allclose(lam[:, 1:], ref, rtol=1e-9, atol=1e-9)
+    assert np.allclose(lam.sum(axis=1), 1.0)
+    assert np.allclose(det, np.linalg.det(base), rtol=1e-9)
+    flat = verts.copy()
+    flat[:, -1] = flat[:, 0]  # a degenerate simplex: zero determinant, zero coordinates
+    lam, det = _barycentric(flat, point)
+    assert np.all(lam == 0.0) and np.allclose(det, 0.0)

@@ -54,3 +54,22 @@ def test_input_files_lists_the_hdf5_file_an_xdmf_names(tmp_path):
     assert [f["sha256"] for f in files] == [_sha256(xdmf), _sha256(h5)]
     # a hash already known (computed by a step worker) is taken as given
     assert input_files(Series(xdmf), {xdmf: "k"})[0]["sha256"] == "k"
+
+
+def test_a_report_without_plots_never_imports_matplotlib(tmp_path):
+    """One step draws no plot over time: the report is written without importing matplotlib
+    (checked in a fresh interpreter's sys.modules, not by timing)."""
+    import subprocess
+
+    from phasegauge.meshgen import grid_mesh, to_meshio
+
+    mesh = grid_mesh((8, 8), kind="quad")
+    c = (mesh.cell_centroids[:, 0] > 0.5).astype(float)
+    to_meshio(mesh, cell_data={"alpha": c}).write(tmp_path / "s.vtu")
+    code = ("import sys, phasegauge; phasegauge.measure(sys.argv[1], 'alpha', out=sys.argv[2], snapshots=0); "
+            "print('matplotlib' in sys.modules)")
+    env = dict(os.environ, PYTHONPATH=os.path.join(ROOT, "src"))
+    done = subprocess.run([sys.executable, "-c", code, str(tmp_path / "s.vtu"), str(tmp_path / "out")],
+                          capture_output=True, text=True, env=env, check=True)
+    assert done.stdout.strip().splitlines()[-1] == "False", done.stdout + done.stderr
+    assert os.path.exists(tmp_path / "out" / "report.html")

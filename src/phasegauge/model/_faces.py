@@ -93,6 +93,7 @@ def face_topology(mesh: Mesh) -> dict:
     key *= mesh.n_cells
     key += high[apart]
     del first, low, high, apart
+    shared_faces = int(key.size)  # faces of two different cells (a pair seen twice: cells that share two faces)
     key = unique_ints(key)
     # int32 where cell ids times a small count (faces per cell) still fit: users build
     # table offsets as cell * width in the pairs' own dtype
@@ -113,7 +114,7 @@ def face_topology(mesh: Mesh) -> dict:
             ids = group[row_starts[b]:row_starts[b] + local * n].reshape(local, n)
             numbers[b] = np.ascontiguousarray(ids.T)
     return {"pairs": pairs, "boundary": boundary, "numbers": numbers, "count": int(starts.size),
-            "crowded": int(np.count_nonzero(sizes > 2))}
+            "crowded": int(np.count_nonzero(sizes > 2)), "shared_faces": shared_faces}
 
 
 def grid_face_numbers(mesh: Mesh) -> list | None:

@@ -57,15 +57,23 @@ def overlap_problem(mesh) -> str | None:
 
 
 def _overlaps(mesh) -> dict:
+    regular = mesh.regular_grid is not None
+    topology = None if regular else mesh._face_topology
+    crowded = 0 if regular else topology["crowded"]
+    # two simplices with the same corners have the same faces: each face is then crowded, or the two
+    # cells share every face (their pair is seen more than once); neither, and no simplex repeats
+    # (the corner sort below is skipped, the costliest part on a clean mesh)
+    repeats_possible = regular or crowded or topology.get("shared_faces", -1) != topology["pairs"].shape[0]
     duplicates = 0
     for block in mesh.blocks:
-        if len(block) < 2:
+        if len(block) < 2 or (not repeats_possible and block.cell_type in _SIMPLICES):
             continue
         duplicates += _repeated_rows(sort_small_rows(np.asarray(block.connectivity)))
-    regular = mesh.regular_grid is not None
-    crowded = 0 if regular else mesh._face_topology["crowded"]
     covered = 0 if regular or duplicates or crowded else _covered_boundary_faces(mesh)
     return {"duplicate_cells": duplicates, "crowded_faces": crowded, "covered_boundary_faces": covered}
+
+
+_SIMPLICES = ("triangle", "tetra")
 
 
 def _repeated_rows(rows: np.ndarray) -> int:
@@ -100,7 +108,7 @@ def _covered_boundary_faces(mesh, neighbours: int = 8) -> int:
     """
     from scipy.spatial import cKDTree
 
-    if any(b.cell_type not in ("triangle", "tetra") for b in mesh.blocks):
+    if any(b.cell_type not in _SIMPLICES for b in mesh.blocks):
         return 0
     corners, owners = mesh.boundary_faces
     if corners.shape[0] == 0:
@@ -118,21 +126,44 @@ def _covered_boundary_faces(mesh, neighbours: int = 8) -> int:
     away = middle - centroids[owners]
     away /= np.maximum(np.linalg.norm(away, axis=1), 1e-300)[:, None]
     probe = middle + 1e-3 * size[:, None] * away
-    simplices = np.concatenate([np.asarray(b.connectivity) for b in mesh.blocks])
+    blocks = [np.asarray(b.connectivity) for b in mesh.blocks]
+    simplices = blocks[0] if len(blocks) == 1 else np.concatenate(blocks)  # one block: no copy
     k = min(neighbours, len(simplices))
-    _, near = cKDTree(centroids).query(probe, k=k)
+    # sliding-midpoint tree: about a third of the balanced tree's build time on a million centroids
+    _, near = cKDTree(centroids, balanced_tree=False, compact_nodes=False).query(probe, k=k)
     near = near.reshape(len(probe), k)
     inside = np.zeros(len(probe), dtype=bool)
+    scale = np.maximum(size ** d, 1e-300)
     for j in range(k):
         cell = near[:, j]
         verts = x[simplices[cell]]  # (n, d + 1, d)
-        base = verts[:, 1:, :] - verts[:, :1, :]
-        det = np.linalg.det(base)
-        ok = np.abs(det) > 1e-14 * np.maximum(size[:] ** d, 1e-300)
-        lam = np.zeros((len(probe), d))
-        lam[ok] = np.linalg.solve(np.transpose(base[ok], (0, 2, 1)), (probe - verts[:, 0, :])[ok][..., None])[..., 0]
-        lam0 = 1.0 - lam.sum(axis=1)
+        lam, det = _barycentric(verts, probe)
+        ok = np.abs(det) > 1e-14 * scale
         tol = 1e-9
-        hit = ok & (lam0 > tol) & np.all(lam > tol, axis=1) & (cell != owners)
+        hit = ok & np.all(lam > tol, axis=1) & (cell != owners)
         inside |= hit
     return int(np.count_nonzero(inside))
+
+
+def _barycentric(verts: np.ndarray, point: np.ndarray):
+    """Barycentric coordinates (n, d + 1) of ``point`` (n, d) in the simplices ``verts`` (n, d + 1, d), and
+    the simplices' determinants (n,), by Cramer's rule (0 coordinates where the determinant is 0)."""
+    base = verts[:, 1:, :] - verts[:, :1, :]
+    rel = point - verts[:, 0, :]
+    if verts.shape[2] == 2:
+        a, b = base[:, 0], base[:, 1]
+        det = a[:, 0] * b[:, 1] - a[:, 1] * b[:, 0]
+        parts = [rel[:, 0] * b[:, 1] - rel[:, 1] * b[:, 0], a[:, 0] * rel[:, 1] - a[:, 1] * rel[:, 0]]
+    else:
+        a, b, c = base[:, 0], base[:, 1], base[:, 2]
+        bc, ca, ab = np.cross(b, c), np.cross(c, a), np.cross(a, b)
+        det = np.einsum("ij,ij->i", a, bc)
+        parts = [np.einsum("ij,ij->i", rel, bc), np.einsum("ij,ij->i", rel, ca), np.einsum("ij,ij->i", rel, ab)]
+    lam = np.zeros((len(point), verts.shape[2] + 1))
+    ok = det != 0
+    safe = np.where(ok, det, 1.0)
+    for i, part in enumerate(parts):
+        lam[:, i + 1] = np.where(ok, part / safe, 0.0)
+    lam[:, 0] = np.where(ok, 1.0 - lam[:, 1:].sum(axis=1), 0.0)
+    return lam, det
+

@@ -43,8 +43,11 @@ def with_units(label: str, column: str) -> str:
     return label
 
 
-def new_figure(width: float = 6.4, height: float = 4.0):
+def new_figure(width: float = 6.4, height: float = 4.0, *, constrained: bool = True):
     """A Figure of ``width`` x ``height`` inches with constrained layout, drawn on the Agg canvas.
+
+    With ``constrained=False`` the figure has no layout engine: the caller places the axes
+    (``subplots_adjust``), as for 3D panels, whose layout matplotlib computes slowly.
 
     Returns
     -------
@@ -53,7 +56,7 @@ def new_figure(width: float = 6.4, height: float = 4.0):
     from matplotlib.backends.backend_agg import FigureCanvasAgg
     from matplotlib.figure import Figure
 
-    figure = Figure(figsize=(width, height), layout="constrained")
+    figure = Figure(figsize=(width, height), layout="constrained" if constrained else None)
     FigureCanvasAgg(figure)
     return figure
 

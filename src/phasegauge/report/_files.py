@@ -116,18 +116,34 @@ def atomic_save_figure(path, figure, *, dpi: int = 110) -> bytes:
     """Save a matplotlib figure atomically in the format its suffix names (png, svg, pdf).
 
     Returns the figure as PNG bytes (for embedding in a report page), whatever the file's format.
+
+    A figure with a layout engine (the report's constrained layout) is laid out once, at the saving
+    resolution, and then drawn once per format: matplotlib would otherwise lay it out and draw it
+    without rendering before every save (and a tight bounding box needs that extra pass too). A
+    figure without a layout engine is saved as its maker placed the axes (``subplots_adjust``).
     """
     suffix = os.path.splitext(os.fspath(path))[1].lower().lstrip(".") or "png"
+    _lay_out_once(figure, dpi)
     buffer = io.BytesIO()
-    figure.savefig(buffer, format="png", dpi=dpi, bbox_inches="tight")
+    figure.savefig(buffer, format="png", dpi=dpi)
     data = buffer.getvalue()
     if suffix == "png":
         atomic_write_bytes(path, data)
     else:
         other = io.BytesIO()
-        figure.savefig(other, format=suffix, dpi=dpi, bbox_inches="tight")
+        figure.savefig(other, format=suffix, dpi=dpi)
         atomic_write_bytes(path, other.getvalue())
     return data
+
+
+def _lay_out_once(figure, dpi: int) -> None:
+    """Run the figure's layout engine, if any, at ``dpi`` and remove it (the axes keep their places)."""
+    engine = figure.get_layout_engine()
+    if engine is None:
+        return
+    figure.set_dpi(dpi)
+    engine.execute(figure)
+    figure.set_layout_engine(None)  # with rc settings that put an engine back, matplotlib lays it out again
 
 
 def prepare_output_folder(out, *, overwrite: bool = False, resume: bool = False, run_key: str = "") -> str:

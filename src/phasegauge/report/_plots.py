@@ -22,34 +22,32 @@ def measure_figures(result, snapshots: dict | None = None) -> list:
     ``result`` is the run's tables (a MeasureResult); ``snapshots`` the interface arrays of chosen
     steps (:func:`phasegauge.run._report_data.interface_snapshots`), or None.
     """
-    from . import _plots_droplets, _plots_interface, _plots_mixing
-
     steps = result.steps
     figures = []
     if _has(steps, "phase_volume_drift") and len(steps) > 1:
         figures.append(("phase_volume_drift", "Phase-volume drift relative to the first step",
-                        _plots_mixing.plot_phase_volume_drift(steps)))
+                        _drawer("_plots_mixing").plot_phase_volume_drift(steps)))
     if _has(steps, "interface_width") and len(steps) > 1:
         figures.append(("interface_width", "Interface width (5-95 %) in mesh units and in cells",
-                        _plots_interface.plot_interface_width(steps)))
+                        _drawer("_plots_interface").plot_interface_width(steps)))
     if _has(steps, "coarsening_length") and len(steps) > 1:
         fit = next((f.figures for f in getattr(result, "findings", []) if f.kind == "coarsening"), None)
         figures.append(("coarsening", "Characteristic length (structure factor) over time, log-log",
-                        _plots_interface.plot_coarsening(steps, fit)))
+                        _drawer("_plots_interface").plot_coarsening(steps, fit)))
     if snapshots:
         figures.append(("interface_snapshots", "Interface (c = level) at chosen steps",
-                        _plots_interface.plot_interface_snapshots(
+                        _drawer("_plots_interface").plot_interface_snapshots(
                             snapshots["steps"], bounds=snapshots["bounds"], axis_names=snapshots["axis_names"],
                             times=snapshots["times"])))
     if "droplet_count" in steps and len(steps) > 1:
         figures.append(("droplet_count", "Droplet count over time with breakup and coalescence events",
-                        _plots_droplets.plot_droplet_count(steps, result.events)))
+                        _drawer("_plots_droplets").plot_droplet_count(steps, result.events)))
     if result.droplets is not None and len(result.droplets) and len(steps) > 1:
         figures.append(("droplet_sizes", "Droplet equivalent diameters over time",
-                        _plots_droplets.plot_size_distribution(result.droplets)))
+                        _drawer("_plots_droplets").plot_size_distribution(result.droplets)))
     if _has(steps, "mixing_index") and len(steps) > 1:
         figures.append(("mixing_index", "Volume-weighted mixing index over time",
-                        _plots_mixing.plot_mixing_index(steps)))
+                        _drawer("_plots_mixing").plot_mixing_index(steps)))
     profiles = result.profiles
     if profiles is not None and len(profiles):
         by_step = {f"t = {t:g}": frame.drop(columns=["step", "time"])
@@ -60,9 +58,9 @@ def measure_figures(result, snapshots: dict | None = None) -> list:
             by_step = {keys[i]: by_step[keys[i]] for i in pick}
         weighting = "flow" if _has(profiles, "mixing_index_flow") else "area"
         figures.append(("mixing_profile", "Mixing index along the channel (cross sections)",
-                        _plots_mixing.plot_mixing_profile(by_step, weighting=weighting,
-                                                          target=result.options.mixing_target,
-                                                          axis_label=_position_label(result.options))))
+                        _drawer("_plots_mixing").plot_mixing_profile(by_step, weighting=weighting,
+                                                                     target=result.options.mixing_target,
+                                                                     axis_label=_position_label(result.options))))
     figures += _probe_figures(result)
     figures += _mixture_figures(result)
     return figures
@@ -76,38 +74,45 @@ def _position_label(options) -> str:
     return in_mesh_units(f"position along {axis}" if axis else "position along the axis")
 
 
+def _drawer(module: str):
+    """The plot module ``module`` of this package, imported when a figure of it is drawn (matplotlib
+    with it: a run without plots never imports matplotlib)."""
+    from importlib import import_module
+
+    return import_module(f".{module}", __package__)
+
+
 def _mixture_figures(result) -> list:
     """Bulk compositions over the phase diagram, the gap to the binodal and the solute, where the run has them."""
-    from . import _plots_mixture
-
     steps, diagram = result.steps, getattr(result, "phase_diagram", None)
     figures = []
     if diagram is None or "mean_composition" not in steps:
         return figures
     figures.append(("phase_compositions", "Measured bulk compositions over the phase diagram, step by step",
-                    _plots_mixture.plot_compositions_on_diagram(steps, diagram)))
+                    _drawer("_plots_mixture").plot_compositions_on_diagram(steps, diagram)))
     if _has(steps, "equilibrium_gap"):
         figures.append(("equilibrium_gap", "Gap between the bulk compositions and the binodal over time",
-                        _plots_mixture.plot_equilibrium_gap(steps, tolerance=result.options.equilibrium_tolerance)))
+                        _drawer("_plots_mixture").plot_equilibrium_gap(
+                            steps, tolerance=result.options.equilibrium_tolerance)))
     if _has(steps, "extraction_progress"):
         figures.append(("solute_distribution", "Solute in each phase, partition coefficient and extraction progress",
-                        _plots_mixture.plot_solute(steps)))
+                        _drawer("_plots_mixture").plot_solute(steps)))
     return figures
 
 
 def _probe_figures(result) -> list:
     """Probe histories, line profiles and the measured overlay, where the run has them."""
-    from . import _plots_probes
-
     figures = []
     probes, lines = getattr(result, "probes", None), getattr(result, "lines", None)
     validation = getattr(result, "validation", None)
     if probes is not None and len(probes):
-        figures.append(("probe_histories", "Field at each probe over time", _plots_probes.plot_probe_histories(probes)))
+        figures.append(("probe_histories", "Field at each probe over time",
+                        _drawer("_plots_probes").plot_probe_histories(probes)))
     if lines is not None and len(lines):
         figures.append(("line_profiles", "Field along each line at chosen steps",
-                        _plots_probes.plot_line_profiles(lines)))
+                        _drawer("_plots_probes").plot_line_profiles(lines)))
     if validation is not None and len(validation):
         figures.append(("validation_overlay", "Simulated against measured values",
-                        _plots_probes.plot_validation_overlay(validation, getattr(result, "validation_summary", None))))
+                        _drawer("_plots_probes").plot_validation_overlay(
+                            validation, getattr(result, "validation_summary", None))))
     return figures

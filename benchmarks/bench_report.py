@@ -1,0 +1,165 @@
+"""The fixed cost of a run's report: ``write_measure_report`` against plain matplotlib line plots.
+
+Builds (or reuses) the XDMF series of ``bench_measure.py`` (``--kind``, ``--cells`` millions,
+``--steps`` steps), measures it once untimed (``phasegauge.measure(path, 'c', section_axis='x')``,
+4 interface snapshots) and keeps what the run hands its report (the result tables and
+``measure_report_data``). Then times, in rounds (``--repeat``, fastest kept):
+
+* ``report, fresh process``: a child process that has imported phasegauge, pandas and numpy
+  (as the run has when its steps are done) writes the whole output folder
+  (``write_measure_report``: tables, plots, page, manifest), matplotlib's import included;
+* ``baseline, fresh process``: a child with the same imports that imports matplotlib and draws
+  as many plain line plots (one line of 20 points, Agg canvas, PNG at the report's 110 dpi,
+  written to files) as the report draws figures;
+* the same two again in this process, where matplotlib is imported already;
+* ``report data``: ``measure_report_data`` (input hashes, snapshots, records) in this process.
+
+Printed: seconds and the ratio report / baseline (the machine's load cancels in the ratio when
+both run in the same round). CPU seconds of each child are given beside the wall clock.
+
+Usage::
+
+    PYTHONPATH=src python benchmarks/bench_report.py [--cells 0.25] [--steps 20] [--kind tetra]
+        [--repeat 3] [--keep DIR]
+"""
+
+from __future__ import annotations
+
+import argparse
+import os
+import pickle
+import shutil
+import subprocess
+import sys
+import tempfile
+import time
+
+HERE = os.path.dirname(os.path.abspath(__file__))
+DPI = 110
+
+
+def _prepare(folder: str, kind: str, millions: float, steps: int) -> tuple:
+    sys.path.insert(0, HERE)
+    import warnings
+
+    from bench_measure import build
+
+    import phasegauge
+    from phasegauge.io import open_series
+    from phasegauge.run._report_data import measure_report_data
+
+    info = build(folder, kind, millions, steps)
+    with warnings.catch_warnings():
+        warnings.simplefilter("ignore")
+        result = phasegauge.measure(info["path"], "c", section_axis="x", snapshots=4)
+    series = open_series(info["path"])
+    t0 = time.perf_counter()
+    data = measure_report_data(series, result)
+    data_seconds = time.perf_counter() - t0
+    data.update(started=time.time(), execution={"workers": 1, "scheduler": None, "plot_format": "png"})
+    return info, result, data, data_seconds
+
+
+def write_report(result, data, out: str) -> int:
+    """Write the report into a fresh folder ``out``; the number of figures drawn."""
+    from phasegauge.report import write_measure_report
+
+    shutil.rmtree(out, ignore_errors=True)
+    os.makedirs(out)
+    write_measure_report(out, result, **data)
+    return sum(1 for name in os.listdir(out) if name.endswith(".png"))
+
+
+def plain_plots(count: int, out: str) -> None:
+    """``count`` plain line plots on the Agg canvas, each saved as a PNG file."""
+    import numpy as np
+    from matplotlib.backends.backend_agg import FigureCanvasAgg
+    from matplotlib.figure import Figure
+
+    os.makedirs(out, exist_ok=True)
+    x = np.arange(20.0)
+    for k in range(count):
+        figure = Figure(figsize=(6.4, 4.0))
+        FigureCanvasAgg(figure)
+        ax = figure.add_subplot()
+        ax.plot(x, np.sqrt(x + k), "-o", markersize=3)
+        ax.set_xlabel("time")
+        ax.set_ylabel("value")
+        figure.savefig(os.path.join(out, f"plot_{k}.png"), dpi=DPI)
+
+
+def _child(job: str, pickled: str, out: str, count: str) -> None:
+    import numpy  # noqa: F401  (the run has these before its report)
+    import pandas  # noqa: F401
+
+    import phasegauge  # noqa: F401
+    import phasegauge.report  # noqa: F401
+
+    with open(pickled, "rb") as handle:
+        result, data = pickle.load(handle)
+    cpu, t0 = time.process_time(), time.perf_counter()
+    if job == "report":
+        write_report(result, data, out)
+    else:
+        plain_plots(int(count), out)
+    print(f"{time.perf_counter() - t0:.4f} {time.process_time() - cpu:.4f}")
+
+
+def _run_child(job: str, pickled: str, out: str, count: int) -> tuple:
+    env = dict(os.environ, MPLBACKEND="Agg")
+    done = subprocess.run([sys.executable, os.path.abspath(__file__), "--child", job, pickled, out, str(count)],
+                          capture_output=True, text=True, env=env, check=True)
+    wall, cpu = (float(v) for v in done.stdout.split()[-2:])
+    return wall, cpu
+
+
+def main(argv=None) -> None:
+    parser = argparse.ArgumentParser(description=__doc__.splitlines()[0])
+    parser.add_argument("--cells", type=float, default=0.25, help="millions of cells")
+    parser.add_argument("--steps", type=int, default=20)
+    parser.add_argument("--kind", default="tetra", help="tetra, hexahedron or grid (as bench_measure.py)")
+    parser.add_argument("--repeat", type=int, default=3)
+    parser.add_argument("--keep", default=None, help="build the series in this folder and keep it")
+    parser.add_argument("--child", nargs=4, help=argparse.SUPPRESS)
+    args = parser.parse_args(argv)
+    if args.child:
+        _child(*args.child)
+        return
+    folder = args.keep or tempfile.mkdtemp(prefix="pg_bench_report_")
+    scratch = tempfile.mkdtemp(prefix="pg_bench_report_out_")
+    try:
+        info, result, data, data_seconds = _prepare(folder, args.kind, args.cells, args.steps)
+        pickled = os.path.join(scratch, "report_input.pkl")
+        with open(pickled, "wb") as handle:
+            pickle.dump((result, data), handle)
+        count = write_report(result, data, os.path.join(scratch, "warmup"))  # also imports matplotlib here
+        rows = {}
+
+        def keep(name, value):
+            rows.setdefault(name, []).append(value)
+
+        for _ in range(max(1, args.repeat)):
+            keep("report, fresh process", _run_child("report", pickled, os.path.join(scratch, "r"), count))
+            keep("baseline, fresh process", _run_child("baseline", pickled, os.path.join(scratch, "b"), count))
+            cpu, t0 = time.process_time(), time.perf_counter()
+            write_report(result, data, os.path.join(scratch, "r_here"))
+            keep("report, this process", (time.perf_counter() - t0, time.process_time() - cpu))
+            cpu, t0 = time.process_time(), time.perf_counter()
+            plain_plots(count, os.path.join(scratch, "b_here"))
+            keep("baseline, this process", (time.perf_counter() - t0, time.process_time() - cpu))
+        best = {name: min(values) for name, values in rows.items()}
+        print(f"series: {info['kind']}, {info['cells']} cells, {info['steps']} steps; the report draws {count} figures")
+        print(f"report data (input hashes, snapshots): {data_seconds:.3f} s")
+        for name, (wall, cpu) in best.items():
+            print(f"{name:26s} {wall:7.3f} s wall  {cpu:7.3f} s CPU")
+        for where in ("fresh process", "this process"):
+            report, base = best[f"report, {where}"], best[f"baseline, {where}"]
+            print(f"report / baseline, {where}: {report[0] / base[0]:.2f} (wall)  {report[1] / base[1]:.2f} (CPU)")
+    finally:
+        shutil.rmtree(scratch, ignore_errors=True)
+        if args.keep is None:
+            shutil.rmtree(folder, ignore_errors=True)
+
+
+if __name__ == "__main__":
+    main()
