@@ -81,9 +81,9 @@ def interface_distance(mesh, c_cell, contour, *, level=0.5, reach=np.inf, measur
     from ._signed_distance import _ContourGeometry, _maybe_near, _signed_distance
 
     c = np.asarray(c_cell, dtype=float)
-    side = np.where(c > level, np.inf, -np.inf)
+    positive = c > level
     if contour is None or contour.n_elements == 0:
-        return side
+        return np.where(positive, np.inf, -np.inf)
     reach = float(reach)
     geometry = measured.geometry if measured is not None and measured.geometry.contour is contour else None
     geometry = _ContourGeometry(contour) if geometry is None else geometry
@@ -119,9 +119,9 @@ def interface_distance(mesh, c_cell, contour, *, level=0.5, reach=np.inf, measur
     if rows.size:
         dist[rows] = np.abs(_signed_distance(points[rows], c[rows], geometry, contour.plane_axes, level,
                                              bound=reach, compact=True))
-    np.negative(dist, out=dist, where=~(c > level))
-    far = ~np.isfinite(dist)
-    dist[far] = np.sign(side[far]) * 2.0 * reach
+    far = np.flatnonzero(~np.isfinite(dist))
+    dist[far] = 2.0 * reach
+    np.negative(dist, out=dist, where=~positive)
     return dist
 
 
@@ -178,7 +178,7 @@ def bulk_compositions(mesh, composition, distance, *, width, multiple=4.0):
         if v.size == 0:
             sides.append((np.nan, np.nan, 0))
             continue
-        q1, median, q3 = (weighted_quantile(v, w, q) for q in (0.25, 0.5, 0.75))
+        q1, median, q3 = weighted_quantile(v, w, (0.25, 0.5, 0.75))
         sides.append((median, 0.5 * (q3 - q1), int(v.size)))
     if np.isfinite(sides[0][0]) and np.isfinite(sides[1][0]) and sides[0][0] < sides[1][0]:
         sides.reverse()                  # the phase with the higher median is the rich one
