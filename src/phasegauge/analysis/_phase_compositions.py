@@ -65,9 +65,9 @@ def interface_distance(mesh, c_cell, contour, *, level=0.5, reach=np.inf, measur
         when that lies more than a quarter of the cell size (``mesh.cell_sizes``) from
         ``reach``: the distance is linear across a cell up to O(h^2 / R) on an interface of
         curvature radius R, so the cell falls on the same side of ``reach`` as its centroid's
-        own distance. The other cells are searched as without it (with trees of shrunk nodes,
-        which may resolve equidistant elements otherwise). Cells with ``c`` below 0.01 that the
-        search without it calls bulk through its thinned element set can come out nearer.
+        own distance. The other cells are searched as without it. Cells with ``c`` below 0.01
+        that the search calls bulk through its thinned element set (see ``_signed_distance``)
+        can come out nearer.
 
     Returns
     -------
@@ -75,8 +75,11 @@ def interface_distance(mesh, c_cell, contour, *, level=0.5, reach=np.inf, measur
 
     Notes
     -----
-    Cells that a grid of buckets shows to be farther than ``reach`` from every contour element
-    centroid are not searched (a search bounded by ``reach`` finds nothing for them).
+    Cells that a grid of buckets and a tree test show to be farther than ``reach`` from every
+    contour element centroid are not searched (a search bounded by ``reach`` finds nothing for
+    them). The search trees have their nodes shrunk to their points (2-3x faster from cells far
+    off the contour); equidistant elements may resolve to another one than in the width
+    estimators' search.
     """
     from ._signed_distance import _ContourGeometry, _maybe_near, _signed_distance
 
