@@ -127,3 +127,44 @@ def test_equilibrium_gap_is_nan_when_a_value_is_missing():
     assert equilibrium_gap(0.1, 0.9, 0.12, 0.85) == pytest.approx(0.05)
     assert np.isnan(equilibrium_gap(0.1, float("nan"), 0.12, 0.85))
     assert np.isnan(equilibrium_gap(0.1, 0.9, float("nan"), float("nan")))
+
+
+@pytest.mark.parametrize("kind", ["quad", "triangle"])
+def test_bulk_cells_from_the_widths_distances_match_the_search_and_the_analytic_distance(kind):
+    # a tanh drop of radius 0.3: the analytic distance to the interface is |r - 0.3| (a circle)
+    from phasegauge.analysis.interface import find_interface, interface_metrics
+    from phasegauge.analysis.thermo import interface_distance
+
+    mesh = grid_mesh((90, 90), kind=kind)
+    r_point = np.hypot(*(mesh.coordinates - 0.5).T)
+    c_point = _logistic(0.3 - r_point)
+    c_cell = mesh.point_to_cell(c_point)
+    contour = find_interface(mesh, c_point)
+    metrics, measured = interface_metrics(mesh, c_point, contour=contour, return_distances=True)
+    reach = 2.0 * metrics["interface_width"]
+    searched = interface_distance(mesh, c_cell, contour, reach=reach)
+    reused = interface_distance(mesh, c_cell, contour, reach=reach, measured=measured)
+    # the same bulk cells on each side and the same sides (own search against the widths' distances)
+    np.testing.assert_array_equal(searched > reach, reused > reach)
+    np.testing.assert_array_equal(searched < -reach, reused < -reach)
+    np.testing.assert_array_equal(searched > 0, reused > 0)
+    # analytic: every cell farther than reach + h from the circle is bulk, none nearer than reach - h
+    exact = np.abs(np.hypot(*(mesh.cell_centroids - 0.5).T) - 0.3)
+    h = 1.0 / 90
+    bulk = np.abs(reused) > reach
+    assert bulk[exact > reach + h].all() and not bulk[exact < reach - h].any()
+
+
+def test_far_cells_skipped_by_the_bucket_test_are_farther_than_reach():
+    # scipy's brute-force distances: a point the bucket test calls far has no centre within reach
+    from scipy.spatial.distance import cdist
+
+    from phasegauge.analysis._signed_distance import _maybe_near
+
+    rng = np.random.default_rng(5)
+    centres = rng.uniform(0.3, 0.6, (200, 3))
+    points = rng.uniform(-0.2, 1.2, (4000, 3))
+    for reach in (0.01, 0.05, 0.2):
+        near = _maybe_near(points, centres, reach)
+        within = cdist(points, centres).min(axis=1) <= reach
+        np.testing.assert_array_equal(near, within)

@@ -51,16 +51,35 @@ def coarsening_length(mesh: Mesh, c_cell, *, resolution: int | None = None) -> f
     if finite.sum() < 2:
         return float("nan")
     values = np.where(finite, sample - sample[finite].mean(), 0.0)
-    power = np.abs(np.fft.fftn(values)) ** 2
-    freqs = [2.0 * np.pi * np.fft.fftfreq(n, d=h) for n, h in zip(sample.shape, spacing)]
-    k = np.sqrt(sum(g ** 2 for g in np.meshgrid(*freqs, indexing="ij")))
+    # the real transform holds half the modes: each one off the last axis's own (zero and, for an
+    # even length, the highest) stands for itself and its complex conjugate
+    transform = np.fft.rfftn(values)
+    del values
+    power = transform.real ** 2 + transform.imag ** 2
+    del transform
+    n_last = sample.shape[-1]
+    twice = np.full(power.shape[-1], 2.0)
+    twice[0] = 1.0
+    if n_last % 2 == 0:
+        twice[-1] = 1.0
+    power *= twice
+    # |k| by broadcasting the axes' frequencies (no full coordinate arrays)
+    freqs = [2.0 * np.pi * np.fft.fftfreq(n, d=h) for n, h in zip(sample.shape[:-1], spacing[:-1])]
+    freqs.append(2.0 * np.pi * np.fft.rfftfreq(n_last, d=spacing[-1]))
+    k = np.zeros(power.shape)
+    for axis, f in enumerate(freqs):
+        shape = [1] * power.ndim
+        shape[axis] = f.size
+        k += (f ** 2).reshape(shape)
+    np.sqrt(k, out=k)
     # the first moment over k-space of the radially averaged S(k): sum over shells of
     # k S(k) n(k) / sum of S(k) n(k), n(k) the modes of a shell, taken mode by mode so that each
     # mode sits at its own |k| (no shell rounding)
     total = float(power.sum() - power.flat[0])
     if not total > 0:
         return float("nan")
-    k1 = float((k * power).sum() / total)
+    k *= power
+    k1 = float(k.sum() / total)
     return 2.0 * np.pi / k1
 
 

@@ -90,24 +90,37 @@ def equilibrium_metrics(mesh: Mesh, field_cell, model, *, kappa: float, periodic
     wrap = {AXIS_INDEX[a] for a in periodic}
     lap = np.zeros_like(phi)
     grad_energy = 0.0
+    term = np.empty_like(phi)
     for k, (step, mesh_axis) in enumerate(zip(h, grid.mesh_axes)):
-        mode = "wrap" if mesh_axis in wrap else "edge"
-        pad = [(0, 0)] * phi.ndim
-        pad[k] = (1, 1)
-        padded = np.pad(phi, pad, mode=mode)
-        ahead = np.take(padded, np.arange(2, phi.shape[k] + 2), axis=k)
-        behind = np.take(padded, np.arange(0, phi.shape[k]), axis=k)
-        lap += (ahead - 2.0 * phi + behind) / step ** 2
-        faces = np.diff(padded if mode == "wrap" else phi, axis=k)
-        if mode == "wrap":
-            faces = np.take(faces, np.arange(1, phi.shape[k] + 1), axis=k)
+        wrapped = mesh_axis in wrap
+
+        def at(part, k=k):  # a slice of the axis k
+            index = [slice(None)] * phi.ndim
+            index[k] = part
+            return tuple(index)
+
+        first, last = at(slice(0, 1)), at(slice(-1, None))
+        # (ahead - 2 phi + behind) / h^2 in place, term by term in that order; beyond the
+        # boundary the cell itself (no flux) or, on a periodic axis, the far end
+        np.multiply(phi, 2.0, out=term)
+        np.subtract(phi[at(slice(1, None))], term[at(slice(None, -1))], out=term[at(slice(None, -1))])
+        np.subtract(phi[first] if wrapped else phi[last], term[last], out=term[last])
+        term[at(slice(1, None))] += phi[at(slice(None, -1))]
+        term[first] += phi[last] if wrapped else phi[first]
+        term /= step ** 2
+        lap += term
+        faces = np.diff(phi, axis=k)
+        if wrapped:  # the face between the far end and the first cell, last
+            faces = np.concatenate([faces, phi[first] - phi[last]], axis=k)
         grad_energy += float(np.sum(faces ** 2)) / step ** 2 * dV
+    del term
     if getattr(model, "kind", "") != "double-well":  # a mole fraction: the logarithms need 0 < x < 1
         if temperature is None or not np.isfinite(temperature):
             return _nan()
         phi = np.clip(phi, 1e-12, 1.0 - 1e-12)
     bulk = model.mixing_gibbs(phi, temperature)
     mu = model.mixing_gibbs_slope(phi, temperature) - kappa * lap
+    del lap
     mean = float(mu.mean())
     dev = mu - mean
     tension = (kappa * grad_energy / interface_size

@@ -23,7 +23,7 @@ from ..model.mesh import Mesh
 from ._contour import _check_level, find_interface
 from ._profile_fits import PROFILE_COLUMNS, WIDTH_PER_EPS, _profile_table
 from ._hex_integrals import _HexBand, coned_hexahedra
-from ._signed_distance import _ContourGeometry
+from ._signed_distance import MeasuredDistances, _ContourGeometry
 from ._width_integrals import _TAIL, _GridBand, _SplitBand, _grid_tetrahedra
 
 __all__ = ["interface_metrics", "interface_profile_table", "METRIC_KEYS", "PROFILE_COLUMNS",
@@ -224,7 +224,8 @@ def _nan_metrics() -> dict:
 
 
 def interface_metrics(mesh: Mesh, indicator, *, level: float = 0.5, contour: Contour | None = None,
-                      extremes: CornerExtremes | None = None, max_samples: int = 2000) -> dict:
+                      extremes: CornerExtremes | None = None, max_samples: int = 2000,
+                      return_distances: bool = False):
     """Size and width of the interface, by four independent estimators.
 
     Parameters
@@ -245,6 +246,11 @@ def interface_metrics(mesh: Mesh, indicator, *, level: float = 0.5, contour: Con
     max_samples : int
         At most this many contour elements (evenly strided) get a local
         profile fit.
+    return_distances : bool
+        Also return the signed distances to the contour the estimators
+        measured at the mesh points (for
+        :func:`phasegauge.analysis.thermo.interface_distance`, which then
+        searches only where they leave the answer open).
 
     Returns
     -------
@@ -284,6 +290,11 @@ def interface_metrics(mesh: Mesh, indicator, *, level: float = 0.5, contour: Con
         0.063 (h / eps)^2 (NaN with data on points); the threshold-free
         width integrates the cell values and carries a fifth of it.
         All NaN when c does not cross ``level``.
+    MeasuredDistances or None
+        With ``return_distances`` only: ``point`` (signed distances at the
+        mesh points, inf beyond ``bound``, the second moment's range, NaN
+        where c is flat around the point), the contour's geometry and
+        ``bound``; None when c does not cross ``level``.
 
     Raises
     ------
@@ -328,7 +339,8 @@ def interface_metrics(mesh: Mesh, indicator, *, level: float = 0.5, contour: Con
     """
     max_samples = _check_samples(max_samples)
     work = _Work(mesh, indicator, level, contour, extremes)
-    return _metrics(work, max_samples)[0]
+    metrics, _, distances = _metrics(work, max_samples)
+    return (metrics, distances) if return_distances else metrics
 
 
 def interface_profile_table(mesh: Mesh, indicator, *, level: float = 0.5, contour: Contour | None = None,
@@ -376,7 +388,7 @@ def _metrics(work: _Work, max_samples: int):
     geometry = _ContourGeometry(contour)
     size = geometry.size
     if contour.n_elements == 0 or not size > 0 or integrals.count == 0:
-        return _nan_metrics(), pd.DataFrame(columns=list(PROFILE_COLUMNS))
+        return _nan_metrics(), pd.DataFrame(columns=list(PROFILE_COLUMNS)), None
     width = integrals.band / size
     total_grad = integrals.total_gradient
     mixed = integrals.mixed if work.cell_mixed is None else work.cell_mixed
@@ -400,6 +412,7 @@ def _metrics(work: _Work, max_samples: int):
     under = float(sizes[~(across >= RESOLVED_CELLS)].sum() / size)
     cells_across = weighted_quantile(np.nan_to_num(across, nan=1e30, posinf=1e30), sizes, 0.5)
     values, dist, known = integrals.at_points(dist)
+    measured = MeasuredDistances(np.where(known & np.isnan(dist), np.inf, dist), geometry, float(bound))
     table = _profile_table(mesh, geometry, values, dist, known & np.isfinite(dist), width, max_samples)
     local = table["width"].to_numpy(dtype=float)
     w = table["weight"].to_numpy(dtype=float)
@@ -425,4 +438,4 @@ def _metrics(work: _Work, max_samples: int):
         "width_cell_data_bias": (CELL_DATA_BIAS * (h_interface / eps) ** 2
                                  if work.cell_mixed is not None and eps > 0 else float("nan")),
     }
-    return metrics, table
+    return metrics, table, measured

@@ -2,6 +2,8 @@
 
 from __future__ import annotations
 
+from typing import NamedTuple
+
 import numpy as np
 
 from ..model.contour import Contour
@@ -9,9 +11,11 @@ from ..model.simplices import SimplexSplit
 
 #: query points per pass of the signed distances (the pass's temporaries stay small)
 _QUERY_CHUNK = 1 << 16
+#: at most about this many buckets in :func:`_maybe_near`'s grid
+_MAX_BUCKETS = 1 << 18
 
 
-def _nearest_plane_distance(points, rows, cent, normal, half, bound):
+def _nearest_plane_distance(points, rows, cent, normal, half, bound, compact=False):
     """Distance from ``points[rows]`` to the nearest element's plane (see :func:`_signed_distance`)."""
     from scipy.spatial import cKDTree
 
@@ -19,8 +23,10 @@ def _nearest_plane_distance(points, rows, cent, normal, half, bound):
     # centroids lie on a surface; equidistant centroids may resolve to another element than with a
     # balanced tree, which moved the second moment by 3e-11 relative on a 1M-cell grid. Leaves of
     # 64 (not 16): 1.9x faster queries from points near a dense contour (jittered hexahedra), the
-    # same elements found on the guarded triangle, tetrahedron and grid runs
-    tree = cKDTree(cent, leafsize=64, balanced_tree=False, compact_nodes=False)
+    # same elements found on the guarded triangle, tetrahedron and grid runs. Nodes shrunk to their
+    # points (compact) are built a little slower and searched 2-3x faster from points far off the
+    # surface.
+    tree = cKDTree(cent, leafsize=64, balanced_tree=False, compact_nodes=compact)
     out = np.full(rows.size, np.nan)
     for lo in range(0, rows.size, _QUERY_CHUNK):  # each query is on its own: chunks change nothing
         at = points[rows[lo:lo + _QUERY_CHUNK]]
@@ -34,6 +40,58 @@ def _nearest_plane_distance(points, rows, cent, normal, half, bound):
     return out
 
 
+def _maybe_near(points: np.ndarray, centres: np.ndarray, reach: float) -> np.ndarray:
+    """False where a point is farther than ``reach`` from every centre, else True.
+
+    Two tests, each exact: first a grid of buckets of side ``s >= reach / 8`` (coarser on a
+    large box: at most about 2^18 buckets) where the centres are marked; a
+    point is kept when
+    the bucket-centre distance to the nearest marked bucket (Euclidean distance transform) is
+    at most ``reach + s sqrt(d)`` (each point and centre lies within half a bucket diagonal of
+    its bucket's centre). Points outside the centres' box grown by ``reach`` are far. Then the
+    points kept are searched for a centre within ``reach`` in a tree whose nodes are shrunk to
+    their points (several times faster for points just beyond ``reach`` than the tree of
+    :func:`_nearest_plane_distance`; whether any centre lies that near does not depend on the
+    tree). A search bounded by ``reach`` finds nothing for the points called far.
+    """
+    from scipy.ndimage import distance_transform_edt
+    from scipy.spatial import cKDTree
+
+    near = np.zeros(points.shape[0], dtype=bool)
+    if centres.shape[0] == 0 or points.shape[0] == 0:
+        return near
+    dim = points.shape[1]
+    lo = centres.min(axis=0) - reach
+    hi = centres.max(axis=0) + reach
+    extent = hi - lo
+    buckets = _MAX_BUCKETS
+    side = max(0.125 * reach, float(np.prod(extent) / buckets) ** (1.0 / dim))
+    shape = np.maximum(np.ceil(extent / side).astype(np.int64), 1)
+    marked = np.zeros(tuple(shape), dtype=bool)
+    marked[tuple(np.minimum(((centres - lo) / side).astype(np.int64), shape - 1).T)] = True
+    # buckets whose centre lies within reach + s sqrt(d) of a marked bucket's centre (in buckets)
+    close = distance_transform_edt(~marked) <= reach / side + np.sqrt(dim) + 1e-9
+    # the flat bucket index of every point (meaningless outside the grown box)
+    flat = np.zeros(points.shape[0], dtype=np.int64)
+    outside = np.zeros(points.shape[0], dtype=bool)
+    for axis in range(dim):
+        x = points[:, axis]
+        outside |= (x < lo[axis]) | (x > hi[axis])
+        q = np.minimum(((x - lo[axis]) / side).astype(np.int64), shape[axis] - 1)
+        flat *= shape[axis]
+        flat += q
+    kept = np.flatnonzero(~outside)
+    kept = kept[close.ravel()[flat[kept]]]
+    if kept.size:
+        tree = cKDTree(centres, balanced_tree=False, compact_nodes=True)
+        for lo_row in range(0, kept.size, _QUERY_CHUNK):
+            rows = kept[lo_row:lo_row + _QUERY_CHUNK]
+            # a little beyond reach: rounding in the tree's distances never drops a point
+            found, _ = tree.query(points[rows], k=1, distance_upper_bound=reach * (1 + 1e-9))
+            near[rows] = np.isfinite(found)
+    return near
+
+
 class _ContourGeometry:
     """A contour's element sizes, centroids and unit normals, computed once."""
 
@@ -45,8 +103,23 @@ class _ContourGeometry:
         self.normals = contour.normals
 
 
+class MeasuredDistances(NamedTuple):
+    """Signed distances the width estimators measured at the mesh points, with the contour's geometry.
+
+    ``point`` : ndarray of shape (n_points,), in mesh length units; positive where c > level,
+    +-inf where the search found no element within ``bound``, NaN where none was searched
+    (c flat around the point).
+    ``geometry`` : the contour's element sizes, centroids and normals.
+    ``bound`` : how far the search reached, in mesh length units.
+    """
+
+    point: np.ndarray
+    geometry: _ContourGeometry
+    bound: float
+
+
 def _signed_distance(points: np.ndarray, values: np.ndarray, geometry: _ContourGeometry, plane_axes,
-                     level: float, bound: float = np.inf, near_band: float = 0.01) -> np.ndarray:
+                     level: float, bound: float = np.inf, near_band: float = 0.01, compact: bool = False) -> np.ndarray:
     """Signed distance from points (analysis coordinates) to the contour; positive where c > level.
 
     The distance is to the tangent line / plane of the nearest element (by
@@ -55,7 +128,8 @@ def _signed_distance(points: np.ndarray, values: np.ndarray, geometry: _ContourG
     c outside (near_band, 1 - near_band) search a thinned set of about 2000
     elements (a search from the middle of a sphere otherwise visits every
     element); their lateral allowance is the thinned spacing. Points farther
-    than ``bound`` get NaN.
+    than ``bound`` get NaN. ``compact`` builds the search trees with nodes shrunk to their
+    points (faster for points far off the contour; equidistant elements may resolve otherwise).
     """
     axes = list(plane_axes)
     contour = geometry.contour
@@ -66,16 +140,16 @@ def _signed_distance(points: np.ndarray, values: np.ndarray, geometry: _ContourG
     dist = np.full(points.shape[0], np.nan)
     close = (values > near_band) & (values < 1.0 - near_band)
     rows = np.flatnonzero(close)
-    dist[rows] = _nearest_plane_distance(points, rows, cent, normal, half, bound)
+    dist[rows] = _nearest_plane_distance(points, rows, cent, normal, half, bound, compact)
     rows = np.flatnonzero(~close)
     stride = max(1, contour.n_elements // 2000)
     if stride > 1:
         thin = slice(0, None, stride)
         spacing = (sizes.sum() / len(cent[thin])) ** (1.0 / (contour.dimension - 1))
         half_thin = np.maximum(half[thin], spacing)
-        dist[rows] = _nearest_plane_distance(points, rows, cent[thin], normal[thin], half_thin, bound)
+        dist[rows] = _nearest_plane_distance(points, rows, cent[thin], normal[thin], half_thin, bound, compact)
     else:
-        dist[rows] = _nearest_plane_distance(points, rows, cent, normal, half, bound)
+        dist[rows] = _nearest_plane_distance(points, rows, cent, normal, half, bound, compact)
     np.negative(dist, out=dist, where=~(values > level))
     return dist
 

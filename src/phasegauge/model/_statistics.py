@@ -7,14 +7,15 @@ import numpy as np
 __all__ = ["weighted_quantile"]
 
 
-def weighted_quantile(values, weights, q: float, *, method: str = "midpoint") -> float:
+def weighted_quantile(values, weights, q, *, method: str = "midpoint"):
     """The ``q`` quantile of ``values`` with weights.
 
     Parameters
     ----------
     values : ndarray of shape (n,)
     weights : ndarray of shape (n,), >= 0
-    q : float in [0, 1]
+    q : float in [0, 1], or a sequence of them
+        With a sequence, the values are sorted once for all.
     method : {'midpoint', 'inverted_cdf'}
         ``midpoint``: each value stands at the middle of its weight in the
         cumulative weight, and the quantile is interpolated linearly between
@@ -25,7 +26,7 @@ def weighted_quantile(values, weights, q: float, *, method: str = "midpoint") ->
 
     Returns
     -------
-    float
+    float, or tuple of float for a sequence ``q``
         NaN when no value is finite with a positive weight. Values that are
         not finite or have no weight are left out.
 
@@ -41,14 +42,22 @@ def weighted_quantile(values, weights, q: float, *, method: str = "midpoint") ->
     ok = np.isfinite(v) & (w > 0)
     if not ok.all():
         v, w = v[ok], w[ok]
+    several = np.ndim(q) > 0
+    if method not in ("midpoint", "inverted_cdf"):
+        raise ValueError(f"method must be 'midpoint' or 'inverted_cdf', not {method!r}")
     if v.size == 0:
-        return float("nan")
+        return tuple(float("nan") for _ in q) if several else float("nan")
     order = np.argsort(v)
     v, w = v[order], w[order]
     if method == "inverted_cdf":
         cumulative = np.cumsum(w)
-        return float(v[min(int(np.searchsorted(cumulative, q * cumulative[-1])), v.size - 1)])
-    if method != "midpoint":
-        raise ValueError(f"method must be 'midpoint' or 'inverted_cdf', not {method!r}")
-    middle = np.cumsum(w) - 0.5 * w
-    return float(np.interp(q * w.sum(), middle, v))
+
+        def one(p):
+            return float(v[min(int(np.searchsorted(cumulative, p * cumulative[-1])), v.size - 1)])
+    else:
+        middle = np.cumsum(w) - 0.5 * w
+        total = w.sum()
+
+        def one(p):
+            return float(np.interp(p * total, middle, v))
+    return tuple(one(p) for p in q) if several else one(q)

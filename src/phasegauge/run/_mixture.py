@@ -122,11 +122,14 @@ def step_temperature(step, mesh, options) -> float:
     return float(weighted_quantile(values[finite], mesh.cell_measures[finite], 0.5)) if finite.any() else math.nan
 
 
-def mixture_step(step, mesh, ind, contour, metrics: dict, options, droplets=None) -> dict:
+def mixture_step(step, mesh, ind, contour, metrics: dict, options, droplets=None, measured=None) -> dict:
     """The mixture columns of one step (see :data:`MIXTURE_COLUMNS`, :data:`SOLUTE_COLUMNS`).
 
     The composition is the field mapped through the range (``ind.cell``, or ``1 - ind.cell``
     when the measured phase is the lower one): the mole fraction of the model's component.
+    ``measured`` is what the width estimators measured of the distances to the contour
+    (``interface_metrics(..., return_distances=True)``): the bulk cells are then found
+    searching only where those leave it open.
     """
     from ..analysis import thermo
 
@@ -149,7 +152,8 @@ def mixture_step(step, mesh, ind, contour, metrics: dict, options, droplets=None
     distance = None
     if contour is not None and contour.n_elements and np.isfinite(width) and width > 0:
         reach = options.bulk_widths * width
-        distance = thermo.interface_distance(mesh, ind.cell, contour, level=options.level, reach=reach)
+        distance = thermo.interface_distance(mesh, ind.cell, contour, level=options.level, reach=reach,
+                                             measured=measured)
         found = thermo.bulk_compositions(mesh, x, distance, width=width, multiple=options.bulk_widths)
         bulk = {k: found[k] for k in bulk}
     out.update(bulk)

@@ -192,12 +192,16 @@ def analyse_step(step, options, *, contour_dir: str | None = None, reported_mesh
                 mesh, u_cell if u_location == "cell" else u_point, ind, velocity_location=u_location)
             m.update({k: v for k, v in flux.items() if k != "open_boundary"})
             m["open_boundary"] = bool(flux["open_boundary"])
-    contour = extremes = None
+    contour = extremes = measured = None
     if "interface" in options.analyses or "droplets" in options.analyses:
         contour, extremes = interface.find_interface(mesh, ind.point, level=options.level, return_extremes=True)
     if "interface" in options.analyses:
-        m.update(interface.interface_metrics(mesh, ind, level=options.level, contour=contour,
-                                                extremes=extremes))
+        # a mixture run keeps the distances the widths measured: its bulk cells need few more
+        widths = interface.interface_metrics(mesh, ind, level=options.level, contour=contour, extremes=extremes,
+                                             return_distances=options.model is not None)
+        if options.model is not None:
+            widths, measured = widths
+        m.update(widths)
         if contour_dir is not None:
             from ..io import write_contour
 
@@ -243,7 +247,7 @@ def analyse_step(step, options, *, contour_dir: str | None = None, reported_mesh
     if options.model is not None:  # a partially miscible mixture: bulk compositions against the model
         from ._mixture import mixture_step
 
-        m.update(mixture_step(step, mesh, ind, contour, m, options, droplets=result.droplets))
+        m.update(mixture_step(step, mesh, ind, contour, m, options, droplets=result.droplets, measured=measured))
     m["nonfinite_values"] = int(ind.nonfinite)
     result.metrics = m
     result.contour = contour
