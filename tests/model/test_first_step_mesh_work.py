@@ -138,3 +138,44 @@ def test_barycentric_coordinates_match_a_linear_solve(dim):
     flat[:, -1] = flat[:, 0]  # a degenerate simplex: zero determinant, zero coordinates
     lam, det = _barycentric(flat, point)
     assert np.all(lam == 0.0) and np.allclose(det, 0.0)
+
+
+def _covered_by_brute_force(m):
+    # reference: every boundary face's probe (the same point off the face) located by
+    # scipy.spatial.Delaunay.find_simplex in each other cell on its own (no k-d tree, no box filter)
+    from scipy.spatial import Delaunay
+
+    corners, owners = m.boundary_faces
+    d, x = m.dimension, m.coordinates
+    face = x[corners[:, corners.shape[1] - d:]]
+    weights = np.array([0.41, 0.59]) if d == 2 else np.array([0.23, 0.33, 0.44])
+    middle = np.einsum("k,nkd->nd", weights, face)
+    away = middle - m.cell_centroids[owners]
+    away /= np.linalg.norm(away, axis=1)[:, None]
+    probe = middle + 1e-3 * m.cell_sizes[owners][:, None] * away
+    inside = np.zeros(len(probe), dtype=bool)
+    for cell, corners_of_cell in enumerate(m.blocks[0].connectivity):
+        tri = Delaunay(x[corners_of_cell])
+        inside |= (tri.find_simplex(probe, tol=-1e-9) >= 0) & (owners != cell)
+    return int(np.count_nonzero(inside))
+
+
+@pytest.mark.parametrize("dim", [2, 3])
+@pytest.mark.parametrize("shift", [0.0, 0.37, 5.0])
+def test_covered_boundary_faces_match_a_brute_force_search(dim, shift):
+    # two grids of simplices, the second moved by `shift` cells along every axis: overlapping (0.37),
+    # or apart (5.0); a lone grid (0.0) has every probe beyond the box of all points (no tree built)
+    from phasegauge.model._overlaps import _covered_boundary_faces
+    from phasegauge.model.mesh import Mesh
+
+    kind = "tetra" if dim == 3 else "triangle"
+    shape = (3, 3, 2) if dim == 3 else (4, 3)
+    m = meshgen.grid_mesh(shape, [(0, 1)] * dim, kind, jitter=0.15, seed=5)
+    points, conn = m.points[:, :dim], m.blocks[0].connectivity
+    if shift:
+        points = np.vstack([points, points + shift / 3.0])
+        conn = np.vstack([conn, conn + len(m.points)])
+    both = Mesh(points, [(kind, conn)])
+    found = _covered_boundary_faces(both)
+    assert found == _covered_by_brute_force(both)
+    assert (found > 0) == (shift == 0.37)

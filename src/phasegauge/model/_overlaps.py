@@ -126,6 +126,16 @@ def _covered_boundary_faces(mesh, neighbours: int = 8) -> int:
     away = middle - centroids[owners]
     away /= np.maximum(np.linalg.norm(away, axis=1), 1e-300)[:, None]
     probe = middle + 1e-3 * size[:, None] * away
+    # a probe beyond the box of all points lies in no cell (every cell lies in that box): on a
+    # box-shaped domain every probe is, and the k-d tree over all centroids is not built; the margin
+    # (a millionth of the cell size, the probe moves a thousandth) leaves rounding to the test below
+    margin = 1e-6 * size[:, None]
+    beyond = np.any((probe < x.min(axis=0) - margin) | (probe > x.max(axis=0) + margin), axis=1)
+    if beyond.all():
+        return 0
+    if beyond.any():
+        keep = ~beyond
+        probe, owners, size = probe[keep], owners[keep], size[keep]
     blocks = [np.asarray(b.connectivity) for b in mesh.blocks]
     simplices = blocks[0] if len(blocks) == 1 else np.concatenate(blocks)  # one block: no copy
     k = min(neighbours, len(simplices))
