@@ -187,7 +187,10 @@ def bulk_plateaus(c_point: np.ndarray, level: float) -> tuple[float, float, floa
         g, near = extreme, side
         for _ in range(3):
             near = side[np.abs(side - g) < 0.05]
-            g = float(np.median(near))  # never empty: the extreme has neighbours within 0.05
+            median = float(np.median(near))  # never empty: the extreme has neighbours within 0.05
+            if median == g:  # the same g would select the same values again: settled
+                break
+            g = median
         spread = 1.4826 * float(np.median(np.abs(near - g)))
         if abs(g - extreme) > 0.01 or abs(g - ideal) > 0.25 or abs(g - ideal) <= 3.0 * spread:
             # no plateau on this side (the inside of a thin filament, a profile still

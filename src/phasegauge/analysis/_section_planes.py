@@ -53,27 +53,21 @@ class _Sections:
 
     def cut_values(self, mesh: Mesh, values: np.ndarray) -> np.ndarray:
         """A point field (n_points,) at every cut edge (n_cuts,), linear along the edge."""
-        added = (np.concatenate([corner_mean(values, corners.astype(np.intp)) for corners in self.centres])
-                 if self.centres else values[:0])
         # numpy gathers much faster with intp indices than with the stored int32 ones
-        low = _node_values(values, added, self.start.astype(np.intp, copy=False))
-        out = _node_values(values, added, self.end.astype(np.intp, copy=False))
+        start = self.start.astype(np.intp, copy=False)
+        end = self.end.astype(np.intp, copy=False)
+        if self.centres:  # the split's added centres are nodes: one table of point, then centre values
+            table = np.concatenate([values] + [corner_mean(values, corners.astype(np.intp))
+                                               for corners in self.centres], dtype=values.dtype)
+        else:
+            table = values
+        low = table[start]
+        out = table[end]
         with np.errstate(invalid="ignore"):  # non-finite values: the pieces are left out later
             out -= low
             out *= self.weight
             out += low  # low + t (high - low), as the split interpolates
         return out
-
-
-def _node_values(values: np.ndarray, added: np.ndarray, nodes: np.ndarray) -> np.ndarray:
-    """``values`` at node ids, reading ids from ``len(values)`` on from ``added``."""
-    n = values.shape[0]
-    if added.shape[0] == 0:
-        return values[nodes]
-    extra = nodes >= n
-    out = values[np.where(extra, 0, nodes)]
-    out[extra] = added[nodes[extra] - n]
-    return out
 
 
 def _plane_pieces(mesh: Mesh, axis: int, position: float, lower_end: bool, cells: np.ndarray,
