@@ -187,9 +187,14 @@ def encode_png(pixels, *, level: int = 1) -> bytes:
 
 
 def _lay_out_once(figure, dpi: int) -> None:
-    """Run the figure's layout engine, if any, at ``dpi`` and remove it (the axes keep their places)."""
+    """Lay out a figure that has a layout engine at ``dpi``, once, and remove the engine (the axes keep their places).
+
+    One-column figures get one measuring pass (:func:`._canvas.lay_out_column`); any other runs its engine.
+    """
+    from ._canvas import lay_out_column
+
     engine = figure.get_layout_engine()
-    if engine is None:
+    if engine is None or lay_out_column(figure, dpi):
         return
     figure.set_dpi(dpi)
     engine.execute(figure)
