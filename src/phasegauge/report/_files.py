@@ -173,10 +173,12 @@ def encode_png(pixels, *, level: int = 1) -> bytes:
 
     import numpy as np
 
-    pixels = np.ascontiguousarray(pixels, dtype=np.uint8)
+    pixels = np.asarray(pixels, dtype=np.uint8)
     height, width, channels = pixels.shape
     rows = np.zeros((height, width * channels + 1), dtype=np.uint8)  # each row: filter byte 0, then its bytes
-    rows[:, 1:] = pixels.reshape(height, -1)
+    # the rows' pixel bytes seen as (height, width, channels): one copy, from a strided input too
+    np.lib.stride_tricks.as_strided(rows[:, 1:], shape=pixels.shape, strides=(rows.strides[0], channels, 1),
+                                    writeable=True)[...] = pixels
 
     def chunk(kind: bytes, body: bytes) -> bytes:
         return struct.pack(">I", len(body)) + kind + body + struct.pack(">I", zlib.crc32(kind + body))
