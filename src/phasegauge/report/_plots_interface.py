@@ -72,7 +72,7 @@ def plot_interface_width(steps_df, *, time_column: str = "time", title: str | No
 
 
 def plot_interface_snapshots(interfaces_by_step, *, bounds, axis_names=("x", "y", "z"), times=None,
-                             max_panels: int = 6, max_triangles: int = 5000, title: str | None = None):
+                             max_panels: int = 6, max_triangles: int = 2500, title: str | None = None):
     """Interfaces of several steps: overlaid in 2D, one 3D panel per step in 3D.
 
     Parameters
@@ -92,7 +92,9 @@ def plot_interface_snapshots(interfaces_by_step, *, bounds, axis_names=("x", "y"
         At most this many steps are drawn, evenly chosen (first and last kept).
     max_triangles : int
         3D: triangles drawn per panel at most; a larger surface is drawn coarsened by vertex
-        clustering (:func:`coarsened_surface`), closed as it was.
+        clustering (:func:`coarsened_surface`), closed as it was. The faces are one flat colour,
+        so only the silhouette shows: 2500 (a clustering grid of about 50 cells per side, under 8
+        pixels on a panel at 110 dpi) draws it as smooth as more, in about half the time of 5000.
     title : str, optional
 
     Returns
