@@ -11,7 +11,7 @@ series gives (file field data, XDMF or listing), or the step number when it give
 
 from __future__ import annotations
 
-__all__ = ["new_figure", "legend_outside", "lay_out_column", "TIME_LABEL", "in_mesh_units", "with_units"]
+__all__ = ["new_figure", "legend_outside", "lay_out_column", "sparse_ticks", "TIME_LABEL", "in_mesh_units", "with_units"]
 
 #: the x label of every plot over time
 TIME_LABEL = "time (run's time units)"
@@ -64,6 +64,24 @@ def new_figure(width: float = 6.4, height: float = 4.0, *, constrained: bool = T
 def legend_outside(ax, **options):
     """The legend of ``ax`` to the right of its plotting area, where it covers no data."""
     return ax.legend(fontsize="small", loc="upper left", bbox_to_anchor=(1.02, 1.0), borderaxespad=0.0, **options)
+
+
+def sparse_ticks(figure, *, bins: int = 5) -> None:
+    """At most about ``bins`` + 1 labelled ticks on every linear axis that has matplotlib's automatic ticks.
+
+    matplotlib fits as many ticks as the axis length allows (eight or nine on the report's time
+    axes); each is a set of lines and a label to build and draw, the largest cost of a plain plot.
+    Five intervals at the same round steps (1, 2, 2.5, 5, 10) read as well. Axes with ticks of
+    their own (logarithmic, integer, fixed) and 3D axes keep them.
+    """
+    from matplotlib.ticker import AutoLocator, MaxNLocator
+
+    for ax in figure.axes:
+        if ax.name != "rectilinear":
+            continue
+        for axis in (ax.xaxis, ax.yaxis):
+            if type(axis.get_major_locator()) is AutoLocator:
+                axis.set_major_locator(MaxNLocator(nbins=bins, steps=[1, 2, 2.5, 5, 10]))
 
 
 #: room around the figure's edge and between rows, in inches (constrained layout's default padding)

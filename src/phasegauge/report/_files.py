@@ -192,9 +192,11 @@ def _lay_out_once(figure, dpi: int) -> None:
     """Lay out a figure that has a layout engine at ``dpi``, once, and remove the engine (the axes keep their places).
 
     One-column figures get one measuring pass (:func:`._canvas.lay_out_column`); any other runs its engine.
+    Linear axes with automatic ticks get fewer of them first (:func:`._canvas.sparse_ticks`).
     """
-    from ._canvas import lay_out_column
+    from ._canvas import lay_out_column, sparse_ticks
 
+    sparse_ticks(figure)
     engine = figure.get_layout_engine()
     if engine is None or lay_out_column(figure, dpi):
         return
