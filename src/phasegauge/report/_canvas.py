@@ -98,6 +98,17 @@ def lay_out_column(figure, dpi: float) -> bool:
     axes grow, as for the report's time plots. Returns False, changing nothing, for any other figure:
     more than one column, fixed aspect, 3D or colour-bar axes, figure-level text or legends, or
     rows that would not fit.
+
+    Parameters
+    ----------
+    figure : matplotlib.figure.Figure
+    dpi : float
+        The resolution the figure will be saved at (text sizes in pixels depend on it).
+
+    Returns
+    -------
+    bool
+        True when the axes were placed (the figure's layout engine is then removed).
     """
     axes = list(figure.axes)
     specs = [ax.get_subplotspec() for ax in axes]

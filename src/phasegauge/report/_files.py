@@ -163,6 +163,17 @@ def encode_png(pixels, *, level: int = 1) -> bytes:
     flat colour, which deflate packs well without the PNG row filters (whose adaptive choice is
     most of a general encoder's time).
 
+    Parameters
+    ----------
+    pixels : array_like of shape (height, width, 3) or (height, width, 4), uint8
+    level : int
+        zlib compression level, 0 to 9.
+
+    Returns
+    -------
+    bytes
+        The PNG file.
+
     References
     ----------
     W3C (2003), Portable Network Graphics (PNG) Specification, second edition: the signature,
