@@ -52,3 +52,18 @@ def test_snapshot_panels_draw_at_most_the_asked_triangles():
     for ax in figure.axes:
         drawn = sum(len(c.get_paths()) for c in ax.collections)
         assert 0 < drawn <= 2000
+
+
+def test_clustering_helpers_agree_with_numpy_unique():
+    # reference: numpy's sort-based unique, which the counting and packing replace
+    from phasegauge.report._plots_interface import _ranks, _unique_rows
+
+    rng = np.random.default_rng(7)
+    for size in (50, 10 ** 6):  # counting over the possible values, and the sort for a sparse range
+        key = rng.integers(0, size, 3000)
+        which, count = _ranks(key, size)
+        values, inverse = np.unique(key, return_inverse=True)
+        assert count == values.size and np.array_equal(which, inverse.reshape(-1))
+    tris = np.sort(rng.integers(0, 40, (5000, 3)), axis=1)
+    assert np.array_equal(_unique_rows(tris, 40), np.unique(tris, axis=0))
+    assert _unique_rows(tris[:0], 40).shape == (0, 3)

@@ -11,7 +11,7 @@ series gives (file field data, XDMF or listing), or the step number when it give
 
 from __future__ import annotations
 
-__all__ = ["new_figure", "legend_outside", "TIME_LABEL", "in_mesh_units", "with_units"]
+__all__ = ["new_figure", "legend_outside", "lay_out_column", "sparse_ticks", "TIME_LABEL", "in_mesh_units", "with_units"]
 
 #: the x label of every plot over time
 TIME_LABEL = "time (run's time units)"
@@ -64,3 +64,92 @@ def new_figure(width: float = 6.4, height: float = 4.0, *, constrained: bool = T
 def legend_outside(ax, **options):
     """The legend of ``ax`` to the right of its plotting area, where it covers no data."""
     return ax.legend(fontsize="small", loc="upper left", bbox_to_anchor=(1.02, 1.0), borderaxespad=0.0, **options)
+
+
+def sparse_ticks(figure, *, bins: int = 5) -> None:
+    """At most about ``bins`` + 1 labelled ticks on every linear axis that has matplotlib's automatic ticks.
+
+    matplotlib fits as many ticks as the axis length allows (eight or nine on the report's time
+    axes); each is a set of lines and a label to build and draw, the largest cost of a plain plot.
+    Five intervals at the same round steps (1, 2, 2.5, 5, 10) read as well. Axes with ticks of
+    their own (logarithmic, integer, fixed) and 3D axes keep them.
+    """
+    from matplotlib.ticker import AutoLocator, MaxNLocator
+
+    for ax in figure.axes:
+        if ax.name != "rectilinear":
+            continue
+        for axis in (ax.xaxis, ax.yaxis):
+            if type(axis.get_major_locator()) is AutoLocator:
+                axis.set_major_locator(MaxNLocator(nbins=bins, steps=[1, 2, 2.5, 5, 10]))
+
+
+#: room around the figure's edge and between rows, in inches (constrained layout's default padding)
+_PAD_INCHES = 3 / 72
+
+
+def lay_out_column(figure, dpi: float) -> bool:
+    """Place the axes of a one-column figure from one measurement of what each draws outside its box.
+
+    Each axes' tight box (tick labels, axis labels, title, a legend outside) is measured once at
+    ``dpi``; the axes are then set so every row's box fits the figure with a padding of 3 points,
+    the rows of equal height. Constrained layout does the same measurement twice (its second pass
+    refines after the tick labels moved); one pass is enough where the boxes change little when the
+    axes grow, as for the report's time plots. Returns False, changing nothing, for any other figure:
+    more than one column, fixed aspect, 3D or colour-bar axes, figure-level text or legends, or
+    rows that would not fit.
+
+    Parameters
+    ----------
+    figure : matplotlib.figure.Figure
+    dpi : float
+        The resolution the figure will be saved at (text sizes in pixels depend on it).
+
+    Returns
+    -------
+    bool
+        True when the axes were placed (the figure's layout engine is then removed).
+    """
+    axes = list(figure.axes)
+    specs = [ax.get_subplotspec() for ax in axes]
+    if (not axes or len(axes) > 4 or figure.texts or figure.legends or getattr(figure, "_suptitle", None)
+            or any(spec is None for spec in specs)):
+        return False
+    grid = specs[0].get_gridspec()
+    if grid.ncols != 1 or any(spec.get_gridspec() is not grid for spec in specs):
+        return False
+    if any(ax.name != "rectilinear" or ax.get_aspect() != "auto" or getattr(ax, "_colorbar", None) is not None
+           for ax in axes):
+        return False
+    figure.set_dpi(dpi)
+    renderer = figure.canvas.get_renderer()
+    width, height = figure.bbox.width, figure.bbox.height
+    rows = {}
+    for ax, spec in zip(axes, specs):
+        rows.setdefault((spec.rowspan.start, spec.rowspan.stop), []).append(ax)
+    if len({span for span in rows}) != len({span[0] for span in rows}):
+        return False
+    left = right = 0.0
+    tops, bottoms = [], []
+    for span in sorted(rows):
+        top = bottom = 0.0
+        for ax in rows[span]:
+            tight = ax.get_tightbbox(renderer)
+            box = ax.get_position().transformed(figure.transFigure)
+            left, right = max(left, box.x0 - tight.x0), max(right, tight.x1 - box.x1)
+            top, bottom = max(top, tight.y1 - box.y1), max(bottom, box.y0 - tight.y0)
+        tops.append(top)
+        bottoms.append(bottom)
+    pad = _PAD_INCHES * dpi
+    x0, x1 = left + pad, width - right - pad
+    row_height = (height - sum(tops) - sum(bottoms) - 2 * pad * len(rows)) / len(rows)
+    if x1 - x0 < 0.3 * width or row_height < 0.15 * height:
+        return False
+    y = height - pad
+    for span, top, bottom in zip(sorted(rows), tops, bottoms):
+        y -= top
+        for ax in rows[span]:
+            ax.set_position([x0 / width, (y - row_height) / height, (x1 - x0) / width, row_height / height])
+        y -= row_height + bottom + 2 * pad
+    figure.set_layout_engine(None)
+    return True

@@ -18,7 +18,7 @@ import shutil
 from ..errors import OutputError
 
 __all__ = ["atomic_write_bytes", "atomic_write_text", "atomic_write_csv", "atomic_write_json",
-           "atomic_save_figure", "prepare_output_folder", "output_transaction", "RUN_MARKER",
+           "atomic_save_figure", "encode_png", "prepare_output_folder", "output_transaction", "RUN_MARKER",
            "PREVIOUS_RUN", "TEMP_PREFIX"]
 
 #: file inside an output folder that says a phasegauge run owns it
@@ -124,9 +124,7 @@ def atomic_save_figure(path, figure, *, dpi: int = 110) -> bytes:
     """
     suffix = os.path.splitext(os.fspath(path))[1].lower().lstrip(".") or "png"
     _lay_out_once(figure, dpi)
-    buffer = io.BytesIO()
-    figure.savefig(buffer, format="png", dpi=dpi)
-    data = buffer.getvalue()
+    data = _png_bytes(figure, dpi)
     if suffix == "png":
         atomic_write_bytes(path, data)
     else:
@@ -136,10 +134,82 @@ def atomic_save_figure(path, figure, *, dpi: int = 110) -> bytes:
     return data
 
 
+def _png_bytes(figure, dpi: int) -> bytes:
+    """The figure drawn on the Agg canvas at ``dpi`` (by ``savefig``, as raw RGBA), as PNG bytes.
+
+    The pixels are the ones matplotlib's PNG would hold; they are encoded by :func:`encode_png`
+    (RGB when the image is opaque, as the report's white figures are), which on the report's plots
+    takes about a sixth of the time of matplotlib's PNG writer for files of about the same size.
+    """
+    import numpy as np
+
+    figure.set_dpi(dpi)
+    raw = io.BytesIO()
+    figure.savefig(raw, format="raw", dpi=dpi)
+    width, height = int(figure.bbox.width), int(figure.bbox.height)
+    pixels = np.frombuffer(raw.getbuffer(), dtype=np.uint8)
+    if pixels.size != width * height * 4:  # not the Agg canvas's layout: let matplotlib write the PNG
+        buffer = io.BytesIO()
+        figure.savefig(buffer, format="png", dpi=dpi)
+        return buffer.getvalue()
+    rgba = pixels.reshape(height, width, 4)
+    return encode_png(rgba[..., :3] if rgba[..., 3].min() == 255 else rgba)
+
+
+def encode_png(pixels, *, level: int = 1) -> bytes:
+    """A PNG file of an 8-bit image: ``pixels`` of shape (height, width, 3) RGB or (height, width, 4) RGBA.
+
+    Rows are stored unfiltered and deflated by zlib at ``level`` (1: fastest). Plots are mostly
+    flat colour, which deflate packs well without the PNG row filters (whose adaptive choice is
+    most of a general encoder's time).
+
+    Parameters
+    ----------
+    pixels : array_like of shape (height, width, 3) or (height, width, 4), uint8
+    level : int
+        zlib compression level, 0 to 9.
+
+    Returns
+    -------
+    bytes
+        The PNG file.
+
+    References
+    ----------
+    W3C (2003), Portable Network Graphics (PNG) Specification, second edition: the signature,
+    the IHDR, IDAT and IEND chunks with their CRC-32, colour types 2 and 6, filter type 0.
+    """
+    import struct
+    import zlib
+
+    import numpy as np
+
+    pixels = np.asarray(pixels, dtype=np.uint8)
+    height, width, channels = pixels.shape
+    rows = np.zeros((height, width * channels + 1), dtype=np.uint8)  # each row: filter byte 0, then its bytes
+    # the rows' pixel bytes seen as (height, width, channels): one copy, from a strided input too
+    np.lib.stride_tricks.as_strided(rows[:, 1:], shape=pixels.shape, strides=(rows.strides[0], channels, 1),
+                                    writeable=True)[...] = pixels
+
+    def chunk(kind: bytes, body: bytes) -> bytes:
+        return struct.pack(">I", len(body)) + kind + body + struct.pack(">I", zlib.crc32(kind + body))
+
+    header = struct.pack(">IIBBBBB", width, height, 8, {3: 2, 4: 6}[channels], 0, 0, 0)
+    return (b"\x89PNG\r\n\x1a\n" + chunk(b"IHDR", header) + chunk(b"IDAT", zlib.compress(rows.tobytes(), level))
+            + chunk(b"IEND", b""))
+
+
 def _lay_out_once(figure, dpi: int) -> None:
-    """Run the figure's layout engine, if any, at ``dpi`` and remove it (the axes keep their places)."""
+    """Lay out a figure that has a layout engine at ``dpi``, once, and remove the engine (the axes keep their places).
+
+    One-column figures get one measuring pass (:func:`._canvas.lay_out_column`); any other runs its engine.
+    Linear axes with automatic ticks get fewer of them first (:func:`._canvas.sparse_ticks`).
+    """
+    from ._canvas import lay_out_column, sparse_ticks
+
+    sparse_ticks(figure)
     engine = figure.get_layout_engine()
-    if engine is None:
+    if engine is None or lay_out_column(figure, dpi):
         return
     figure.set_dpi(dpi)
     engine.execute(figure)

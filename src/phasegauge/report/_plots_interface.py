@@ -72,7 +72,7 @@ def plot_interface_width(steps_df, *, time_column: str = "time", title: str | No
 
 
 def plot_interface_snapshots(interfaces_by_step, *, bounds, axis_names=("x", "y", "z"), times=None,
-                             max_panels: int = 6, max_triangles: int = 5000, title: str | None = None):
+                             max_panels: int = 6, max_triangles: int = 2500, title: str | None = None):
     """Interfaces of several steps: overlaid in 2D, one 3D panel per step in 3D.
 
     Parameters
@@ -92,7 +92,9 @@ def plot_interface_snapshots(interfaces_by_step, *, bounds, axis_names=("x", "y"
         At most this many steps are drawn, evenly chosen (first and last kept).
     max_triangles : int
         3D: triangles drawn per panel at most; a larger surface is drawn coarsened by vertex
-        clustering (:func:`coarsened_surface`), closed as it was.
+        clustering (:func:`coarsened_surface`), closed as it was. The faces are one flat colour,
+        so only the silhouette shows: 2500 (a clustering grid of about 50 cells per side, under 8
+        pixels on a panel at 110 dpi) draws it as smooth as more, in about half the time of 5000.
     title : str, optional
 
     Returns
@@ -240,14 +242,41 @@ def coarsened_surface(points, elements, max_triangles: int, *, bounds):
     while True:
         cell = np.clip(((points - lo) / extent * n).astype(np.int64), 0, n - 1)
         key = (cell[:, 0] * n + cell[:, 1]) * n + cell[:, 2]
-        clusters, which = np.unique(key, return_inverse=True)
-        tris = which.reshape(-1)[elements]
+        which, clusters = _ranks(key, n ** 3)
+        tris = which[elements]
         keep = (tris[:, 0] != tris[:, 1]) & (tris[:, 1] != tris[:, 2]) & (tris[:, 0] != tris[:, 2])
-        tris = np.unique(np.sort(tris[keep], axis=1), axis=0)
+        tris = _unique_rows(np.sort(tris[keep], axis=1), clusters)
         if len(tris) <= max_triangles or n <= 2:
             break
         n = max(2, int(n * 0.8))
-    count = np.bincount(which.reshape(-1), minlength=clusters.size).astype(float)
-    centres = np.stack([np.bincount(which.reshape(-1), weights=points[:, j], minlength=clusters.size)
+    count = np.bincount(which, minlength=clusters).astype(float)
+    centres = np.stack([np.bincount(which, weights=points[:, j], minlength=clusters)
                         for j in range(points.shape[1])], axis=1) / count[:, None]
     return centres, tris[:max_triangles]
+
+
+def _ranks(key, size: int):
+    """The rank of each of ``key`` (integers in [0, size)) among its distinct values, and their number.
+
+    As ``np.unique(key, return_inverse=True)``; by counting over the ``size`` possible values, without
+    a sort, when they are not many more than the keys.
+    """
+    if size > 4 * key.size + (1 << 16):
+        clusters, which = np.unique(key, return_inverse=True)
+        return which.reshape(-1), clusters.size
+    present = np.bincount(key, minlength=size) > 0
+    rank = np.cumsum(present) - 1
+    return rank[key], int(present.sum())
+
+
+def _unique_rows(tris, count: int):
+    """The distinct rows of ``tris`` (k, 3) of integers in [0, count), in lexicographic order.
+
+    As ``np.unique(tris, axis=0)``: each row packed into one integer (base ``count``) while that fits
+    in 63 bits, whose order is the rows' lexicographic order.
+    """
+    if len(tris) == 0 or count ** 3 >= 1 << 62:
+        return np.unique(tris, axis=0)
+    base = np.int64(count)
+    packed = np.unique((tris[:, 0].astype(np.int64) * base + tris[:, 1]) * base + tris[:, 2])
+    return np.stack([packed // (base * base), packed // base % base, packed % base], axis=1).astype(tris.dtype)

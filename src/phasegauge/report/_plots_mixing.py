@@ -50,6 +50,7 @@ def plot_mixing_profile(profiles: dict, *, weighting: str = "flow", target: floa
                           fix="'flow' weighs by u.n, 'area' by the section area")
     figure = new_figure()
     ax = figure.add_subplot()
+    keys, inflow = [], None  # the legend: one entry per profile, the dotted style once
     for label, table in profiles.items():
         _require(table, ["position", "mixing_index"], "profile")
         column, suffix = "mixing_index", ""
@@ -60,17 +61,23 @@ def plot_mixing_profile(profiles: dict, *, weighting: str = "flow", target: floa
                 suffix = " (area-weighted)"
         ordered = table.sort_values("position")
         (line,) = ax.plot(ordered["position"], ordered[column], marker="o", markersize=3, label=f"{label}{suffix}")
+        keys.append(line)
         if "mixing_index_inflow" in ordered and ordered["mixing_index_inflow"].notna().any():
             ax.plot(ordered["position"], ordered["mixing_index_inflow"], linestyle=":", marker="x", markersize=3,
                     color=line.get_color(), label=f"{label}, against the inflow mean")
+            inflow = "dotted: against the inflow mean"
+    if inflow:
+        from matplotlib.lines import Line2D
+
+        keys.append(Line2D([], [], color="0.3", linestyle=":", marker="x", markersize=3, label=inflow))
     if target is not None:
-        ax.axhline(target, color="0.4", linestyle="--", linewidth=1, label=f"target {target:g}")
+        keys.append(ax.axhline(target, color="0.4", linestyle="--", linewidth=1, label=f"target {target:g}"))
     ax.set_xlabel(axis_label)
     ax.set_ylabel("mixing index 1 - sqrt(I)" + (" (flow-weighted)" if weighting == "flow" else ""))
     ax.set_ylim(min(0.0, ax.get_ylim()[0]), max(1.05, ax.get_ylim()[1]))
     ax.grid(True, alpha=0.3)
     if profiles:
-        legend_outside(ax)
+        legend_outside(ax, handles=keys)
     return figure
 
 
