@@ -11,7 +11,7 @@ from phasegauge.io import Series, input_files
 REPORT = os.path.dirname(report_package.__file__)
 ROOT = os.path.dirname(os.path.dirname(os.path.dirname(REPORT)))
 #: third-party libraries the report may draw and write with
-PLOTTING = {"numpy", "pandas", "matplotlib", "mpl_toolkits"}
+PLOTTING = {"numpy", "pandas", "matplotlib", "mpl_toolkits", "PIL"}  # PIL: Pillow, matplotlib's imaging library
 
 
 def _imports(path):

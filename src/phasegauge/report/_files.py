@@ -138,8 +138,8 @@ def _png_bytes(figure, dpi: int) -> bytes:
     """The figure drawn on the Agg canvas at ``dpi`` (by ``savefig``, as raw RGBA), as PNG bytes.
 
     The pixels are the ones matplotlib's PNG would hold; they are encoded by :func:`encode_png`
-    (RGB when the image is opaque, as the report's white figures are), which on the report's plots
-    takes about a sixth of the time of matplotlib's PNG writer for files of about the same size.
+    (RGB when the image is opaque, as the report's white figures are): Pillow at the fastest zlib
+    level, about a third of the time of matplotlib's default PNG settings on the report's plots.
     """
     import numpy as np
 
@@ -159,9 +159,8 @@ def _png_bytes(figure, dpi: int) -> bytes:
 def encode_png(pixels, *, level: int = 1) -> bytes:
     """A PNG file of an 8-bit image: ``pixels`` of shape (height, width, 3) RGB or (height, width, 4) RGBA.
 
-    Rows are stored unfiltered and deflated by zlib at ``level`` (1: fastest). Plots are mostly
-    flat colour, which deflate packs well without the PNG row filters (whose adaptive choice is
-    most of a general encoder's time).
+    Encoded by Pillow (matplotlib's own imaging dependency) at zlib ``level`` (1: fastest); plots
+    are mostly flat colour, which the fastest level packs well.
 
     Parameters
     ----------
@@ -173,30 +172,15 @@ def encode_png(pixels, *, level: int = 1) -> bytes:
     -------
     bytes
         The PNG file.
-
-    References
-    ----------
-    W3C (2003), Portable Network Graphics (PNG) Specification, second edition: the signature,
-    the IHDR, IDAT and IEND chunks with their CRC-32, colour types 2 and 6, filter type 0.
     """
-    import struct
-    import zlib
-
     import numpy as np
+    from PIL import Image
 
-    pixels = np.asarray(pixels, dtype=np.uint8)
-    height, width, channels = pixels.shape
-    rows = np.zeros((height, width * channels + 1), dtype=np.uint8)  # each row: filter byte 0, then its bytes
-    # the rows' pixel bytes seen as (height, width, channels): one copy, from a strided input too
-    np.lib.stride_tricks.as_strided(rows[:, 1:], shape=pixels.shape, strides=(rows.strides[0], channels, 1),
-                                    writeable=True)[...] = pixels
-
-    def chunk(kind: bytes, body: bytes) -> bytes:
-        return struct.pack(">I", len(body)) + kind + body + struct.pack(">I", zlib.crc32(kind + body))
-
-    header = struct.pack(">IIBBBBB", width, height, 8, {3: 2, 4: 6}[channels], 0, 0, 0)
-    return (b"\x89PNG\r\n\x1a\n" + chunk(b"IHDR", header) + chunk(b"IDAT", zlib.compress(rows.tobytes(), level))
-            + chunk(b"IEND", b""))
+    pixels = np.ascontiguousarray(pixels, dtype=np.uint8)
+    buffer = io.BytesIO()
+    Image.fromarray(pixels, mode="RGBA" if pixels.shape[2] == 4 else "RGB").save(buffer, format="PNG",
+                                                                                 compress_level=int(level))
+    return buffer.getvalue()
 
 
 def _lay_out_once(figure, dpi: int) -> None:
