@@ -241,7 +241,6 @@ class PolyhedralRead:
                           stacklevel=3)
         rows = self._stream[3]
         blocks = self._blocks + [("tetra", split.tetra)]
-        rows_of = self._rows_of + [rows[split.source]]
         point_data, points = dict(self._point_data), self._points
         if split.n_centres:
             for name, values in list(point_data.items()):
@@ -249,9 +248,12 @@ class PolyhedralRead:
                     point_data[name] = np.concatenate([values.astype(np.float64), split.centre_values(values)])
                 else:
                     del point_data[name]
-            points = np.concatenate([points, split.centre_values(points)])
-        cell_data = {name: [values[r] for r in rows_of] for name, values in self._cell_data.items()
-                     if np.issubdtype(values.dtype, np.number)}
+            # the split's own copy (same points: the signature matched), shared by the steps
+            points = split.points if split.points is not None else np.concatenate([points,
+                                                                                    split.centre_values(points)])
+        numeric = {name: values for name, values in self._cell_data.items() if np.issubdtype(values.dtype, np.number)}
+        rows_of = self._rows_of + [rows[split.source]] if numeric else []  # 8 bytes a tetrahedron: only if used
+        cell_data = {name: [values[r] for r in rows_of] for name, values in numeric.items()}
         raw = new_mesh(points, blocks, point_data=point_data, cell_data=cell_data, field_data=self.field_data)
         note = None
         if any(isinstance(name, type(CONVEX_POINT_SET)) for name, _ in blocks):

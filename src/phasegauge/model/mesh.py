@@ -239,11 +239,12 @@ class Mesh:
         pts = np.asarray(points, dtype=np.float64)
         if pts.shape[1] < 3:
             pts = np.hstack([pts, np.zeros((pts.shape[0], 3 - pts.shape[1]))])
-        if pts.shape != self.points.shape or not np.array_equal(pts, self.points):
+        if pts is not self.points and (pts.shape != self.points.shape or not np.array_equal(pts, self.points)):
             return False
         if len(blocks) != len(self.blocks):
             return False
-        return all(a.cell_type == b.cell_type and np.array_equal(a.connectivity, b.connectivity)
+        return all(a.cell_type == b.cell_type and (a.connectivity is b.connectivity  # a kept split's arrays
+                                                   or np.array_equal(a.connectivity, b.connectivity))
                    for a, b in zip(blocks, self.blocks))
 
     @cached_property
