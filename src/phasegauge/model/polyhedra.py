@@ -159,6 +159,38 @@ def _next_corners(face_offsets: np.ndarray, sizes: np.ndarray) -> np.ndarray:
     return nxt
 
 
+def _bits(n: int) -> int:
+    return max(int(n - 1).bit_length(), 1)
+
+
+def _pack(high, low, bits: int) -> np.ndarray:
+    """int64 keys ``high * 2**bits + low`` (``low`` below ``2**bits``)."""
+    key = high.astype(np.int64)
+    key <<= np.int64(bits)
+    key |= low
+    return key
+
+
+def _closed_by_keys(face_points, nxt, edge_cell, bits: int) -> bool:
+    """True when every edge of a cell is used by two of its faces in opposite directions (no edge
+    from a corner to itself); False when any is not (then :func:`_check_closed` says which).
+
+    The same condition as :func:`_check_closed` by two plain sorts: the directed edges
+    (cell, a, b) are all different, and as a multiset equal to the reversed ones (cell, b, a).
+    """
+    b = face_points[nxt]
+    if np.any(face_points == b):
+        return False
+    forward = _pack(_pack(edge_cell, face_points, bits), b, bits)
+    forward.sort()
+    if forward.size > 1 and np.any(forward[1:] == forward[:-1]):
+        return False
+    backward = _pack(_pack(edge_cell, b, bits), face_points, bits)
+    del b
+    backward.sort()
+    return bool(np.array_equal(forward, backward))
+
+
 def _check_closed(face_points, nxt, edge_cell, where: str, ids) -> None:
     """Every edge of a cell used by two of its faces, once in each direction."""
     a, b = face_points, face_points[nxt]
@@ -230,7 +262,10 @@ def split_polyhedra(points: np.ndarray, face_points, face_offsets, face_cell, n_
     sizes = _check_faces(n_points, face_points, face_offsets, face_cell, n_cells, where, ids)
     nxt = _next_corners(face_offsets, sizes)
     edge_cell = np.repeat(face_cell, sizes)
-    _check_closed(face_points, nxt, edge_cell, where, ids)
+    bits = _bits(n_points)
+    packed = _bits(n_cells) + 2 * bits <= 63  # (cell, point) and (cell, point, point) keys fit in int64
+    if not (packed and _closed_by_keys(face_points, nxt, edge_cell, bits)):
+        _check_closed(face_points, nxt, edge_cell, where, ids)  # the grouping names what is wrong
 
     # face centres: one per distinct face of four or more corners
     centre_parts, centre_counts, face_centre = [], [], np.full(sizes.size, -1, dtype=np.int64)
@@ -246,12 +281,22 @@ def split_polyhedra(points: np.ndarray, face_points, face_offsets, face_cell, n_
         centre_counts.append(np.full(starts.size, k, dtype=np.int64))
         n_face_centres += starts.size
     # cell centres: the mean of each cell's distinct corners
-    order, starts = group_columns([edge_cell, face_points])
-    distinct = order[starts]
-    del order, starts
-    centre_parts.append(face_points[distinct])
-    centre_counts.append(np.bincount(edge_cell[distinct], minlength=n_cells))
-    del distinct, edge_cell
+    if packed:  # the distinct (cell, corner) keys in increasing order, as the grouping orders them
+        key = _pack(edge_cell, face_points, bits)
+        key.sort()
+        key = key[np.concatenate([[True], key[1:] != key[:-1]])]
+        centre_parts.append(key & np.int64((1 << bits) - 1))
+        key >>= np.int64(bits)
+        centre_counts.append(np.bincount(key, minlength=n_cells))
+        del key
+    else:
+        order, starts = group_columns([edge_cell, face_points])
+        distinct = order[starts]
+        del order, starts
+        centre_parts.append(face_points[distinct])
+        centre_counts.append(np.bincount(edge_cell[distinct], minlength=n_cells))
+        del distinct
+    del edge_cell
     centre_points = np.concatenate(centre_parts).astype(np.int64, copy=False)
     del centre_parts
     centre_offsets = np.concatenate([[0], np.cumsum(np.concatenate(centre_counts))]).astype(np.int64)
