@@ -211,6 +211,7 @@ class PolyhedralRead:
             kept = mesh.memo(self._KEY, lambda: None, keep=False)
             if kept is not None and kept[0] == self.signature:
                 self._split = kept[1]
+                self._drop_faces()
                 return
 
     def keep_split(self, mesh) -> None:
@@ -225,7 +226,13 @@ class PolyhedralRead:
             face_points, face_offsets, face_cell, rows = self._stream
             self._split = split_polyhedra(self._points, face_points, face_offsets, face_cell, rows.size,
                                           where=self.path, cell_ids=rows)
+            self._drop_faces()
         return self._split
+
+    def _drop_faces(self) -> None:
+        """Free the face stream once split (its hash kept as :attr:`signature`): 12 bytes a face corner."""
+        self.signature  # noqa: B018  (hashed before the faces go)
+        self._stream = (None, None, None, self._stream[3])
 
     def __getattr__(self, name):
         if name.startswith("_"):

@@ -179,9 +179,9 @@ class Mesh:
             parts, top = [], 0
             for i, block in zip(self.kept_blocks, self.blocks):
                 own = np.arange(len(block)) if pieces[i] is None else np.asarray(pieces[i], dtype=np.int64)
-                parts.append(own + top)
+                parts.append(own + top if top else own)
                 top += int(own.max()) + 1 if own.size else 0
-            self.cell_parents = np.concatenate(parts)
+            self.cell_parents = np.concatenate(parts) if len(parts) > 1 else parts[0]  # one block: the reader's
 
     # ------------------------------------------------------------------ basics
     def __repr__(self) -> str:
