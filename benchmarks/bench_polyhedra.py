@@ -184,7 +184,7 @@ def main(argv=None) -> None:
         for config in configs:
             res[config] = run_child(config, info["hexahedra" if config == "hexahedra" else "polyhedra"])
             out = res[config]
-            print(f"  {config:9s} {out['seconds']:8.2f} s  first step {out['per_step'][0]:.2f} s  later steps "
+            print(f"  {config:9s} {out['seconds']:8.2f} s (cpu {out['cpu_seconds']:.1f})  first step {out['per_step'][0]:.2f} s  later steps "
                   f"{np.median(out['per_step'][1:] or out['per_step']):.2f} s  peak "
                   f"{out['peak'] / info['step_bytes']:.1f}x step", flush=True)
         poly, hexa, base = res.get("polyhedra"), res.get("hexahedra"), res.get("baseline")

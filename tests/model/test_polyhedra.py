@@ -144,3 +144,29 @@ def test_cell_not_star_shaped_from_its_centre_keeps_its_signed_volume():
     assert split.inverted_tetra > 0
     volume, _ = _volumes(points, split)
     assert volume[0] == pytest.approx(area, rel=1e-13)  # elementary geometry
+
+
+@pytest.mark.parametrize("change", [
+    lambda f: f,
+    lambda f: f[1:],
+    lambda f: [f[0][::-1]] + f[1:],
+    lambda f: f + [f[0]],
+    lambda f: [(0, 3, 3, 2, 1)] + f[1:],
+    lambda f: [(0, 3, 2, 1, 0, 3, 2, 1)] + f[1:],
+])
+def test_closed_by_sorted_keys_agrees_with_the_edge_grouping(change):
+    # the two plain sorts say "closed, consistently oriented" exactly when the edge grouping
+    # finds every edge twice in opposite directions (the grouping names the fault otherwise)
+    from phasegauge.model import polyhedra
+
+    points, faces, _ = _frustum()
+    fp, fo, fc = _stream([change(list(faces))])
+    sizes = np.diff(fo)
+    nxt = polyhedra._next_corners(fo, sizes)
+    edge_cell = np.repeat(fc, sizes)
+    try:
+        polyhedra._check_closed(fp, nxt, edge_cell, "", np.arange(1))
+        grouped = True
+    except UnsupportedMeshError:
+        grouped = False
+    assert polyhedra._closed_by_keys(fp, nxt, edge_cell, polyhedra._bits(len(points))) == grouped

@@ -211,6 +211,7 @@ class PolyhedralRead:
             kept = mesh.memo(self._KEY, lambda: None, keep=False)
             if kept is not None and kept[0] == self.signature:
                 self._split = kept[1]
+                self._drop_faces()
                 return
 
     def keep_split(self, mesh) -> None:
@@ -225,7 +226,13 @@ class PolyhedralRead:
             face_points, face_offsets, face_cell, rows = self._stream
             self._split = split_polyhedra(self._points, face_points, face_offsets, face_cell, rows.size,
                                           where=self.path, cell_ids=rows)
+            self._drop_faces()
         return self._split
+
+    def _drop_faces(self) -> None:
+        """Free the face stream once split (its hash kept as :attr:`signature`): 12 bytes a face corner."""
+        self.signature  # noqa: B018  (hashed before the faces go)
+        self._stream = (None, None, None, self._stream[3])
 
     def __getattr__(self, name):
         if name.startswith("_"):
@@ -241,7 +248,6 @@ class PolyhedralRead:
                           stacklevel=3)
         rows = self._stream[3]
         blocks = self._blocks + [("tetra", split.tetra)]
-        rows_of = self._rows_of + [rows[split.source]]
         point_data, points = dict(self._point_data), self._points
         if split.n_centres:
             for name, values in list(point_data.items()):
@@ -249,9 +255,12 @@ class PolyhedralRead:
                     point_data[name] = np.concatenate([values.astype(np.float64), split.centre_values(values)])
                 else:
                     del point_data[name]
-            points = np.concatenate([points, split.centre_values(points)])
-        cell_data = {name: [values[r] for r in rows_of] for name, values in self._cell_data.items()
-                     if np.issubdtype(values.dtype, np.number)}
+            # the split's own copy (same points: the signature matched), shared by the steps
+            points = split.points if split.points is not None else np.concatenate([points,
+                                                                                    split.centre_values(points)])
+        numeric = {name: values for name, values in self._cell_data.items() if np.issubdtype(values.dtype, np.number)}
+        rows_of = self._rows_of + [rows[split.source]] if numeric else []  # 8 bytes a tetrahedron: only if used
+        cell_data = {name: [values[r] for r in rows_of] for name, values in numeric.items()}
         raw = new_mesh(points, blocks, point_data=point_data, cell_data=cell_data, field_data=self.field_data)
         note = None
         if any(isinstance(name, type(CONVEX_POINT_SET)) for name, _ in blocks):

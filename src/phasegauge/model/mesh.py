@@ -179,9 +179,9 @@ class Mesh:
             parts, top = [], 0
             for i, block in zip(self.kept_blocks, self.blocks):
                 own = np.arange(len(block)) if pieces[i] is None else np.asarray(pieces[i], dtype=np.int64)
-                parts.append(own + top)
+                parts.append(own + top if top else own)
                 top += int(own.max()) + 1 if own.size else 0
-            self.cell_parents = np.concatenate(parts)
+            self.cell_parents = np.concatenate(parts) if len(parts) > 1 else parts[0]  # one block: the reader's
 
     # ------------------------------------------------------------------ basics
     def __repr__(self) -> str:
@@ -239,11 +239,12 @@ class Mesh:
         pts = np.asarray(points, dtype=np.float64)
         if pts.shape[1] < 3:
             pts = np.hstack([pts, np.zeros((pts.shape[0], 3 - pts.shape[1]))])
-        if pts.shape != self.points.shape or not np.array_equal(pts, self.points):
+        if pts is not self.points and (pts.shape != self.points.shape or not np.array_equal(pts, self.points)):
             return False
         if len(blocks) != len(self.blocks):
             return False
-        return all(a.cell_type == b.cell_type and np.array_equal(a.connectivity, b.connectivity)
+        return all(a.cell_type == b.cell_type and (a.connectivity is b.connectivity  # a kept split's arrays
+                                                   or np.array_equal(a.connectivity, b.connectivity))
                    for a, b in zip(blocks, self.blocks))
 
     @cached_property

@@ -39,7 +39,7 @@ from dataclasses import dataclass
 import numpy as np
 
 from ..errors import UnsupportedMeshError
-from ._grouping import group_columns
+from ._grouping import group_columns, index_dtype
 from .cells import FACES
 
 __all__ = ["PolyhedraSplit", "split_polyhedra", "cell_face_stream"]
@@ -71,6 +71,9 @@ class PolyhedraSplit:
         Cells whose faces were listed with inward normals (turned over).
     inverted_tetra : int
         Tetrahedra of negative volume after the turning (cells not star-shaped from their centre).
+    points : ndarray of shape (n_points + n_centres, 3), optional
+        The input points followed by the centres (:meth:`centre_values` of the points), kept
+        so that later steps on the same points and faces do not compute them again.
     """
 
     tetra: np.ndarray
@@ -81,6 +84,7 @@ class PolyhedraSplit:
     n_face_centres: int
     reversed_cells: int = 0
     inverted_tetra: int = 0
+    points: np.ndarray | None = None
 
     @property
     def n_centres(self) -> int:
@@ -115,6 +119,16 @@ def cell_face_stream(cell_type: str, connectivity: np.ndarray) -> tuple[np.ndarr
     return rows.ravel(), offsets, np.repeat(np.arange(n, dtype=np.int64), len(faces))
 
 
+def _compact(ids, dtype, n: int) -> np.ndarray:
+    """``ids`` as integers of ``dtype`` (no copy when they are already), refused later when out of 0..n-1."""
+    ids = np.asarray(ids)
+    if ids.dtype == dtype:
+        return ids
+    if ids.size and (ids.min() < 0 or ids.max() >= max(n, 1)):
+        return ids.astype(np.int64)  # out of range: kept whole for the check's message
+    return ids.astype(dtype)
+
+
 def _refuse(what: str, where: str) -> UnsupportedMeshError:
     return UnsupportedMeshError(what, where=where, fix=_FIX_FACES)
 
@@ -140,16 +154,51 @@ def _check_faces(n_points: int, face_points, face_offsets, face_cell, n_cells: i
 
 def _next_corners(face_offsets: np.ndarray, sizes: np.ndarray) -> np.ndarray:
     """For each position of the face stream, the position of the next corner around its face."""
-    nxt = np.arange(1, int(face_offsets[-1]) + 1, dtype=np.int64)
+    nxt = np.arange(1, int(face_offsets[-1]) + 1, dtype=index_dtype(int(face_offsets[-1]) + 1))
     nxt[face_offsets[1:] - 1] = face_offsets[:-1]
     return nxt
+
+
+def _bits(n: int) -> int:
+    return max(int(n - 1).bit_length(), 1)
+
+
+def _pack(high, low, bits: int) -> np.ndarray:
+    """int64 keys ``high * 2**bits + low`` (``low`` below ``2**bits``)."""
+    key = high.astype(np.int64)
+    key <<= np.int64(bits)
+    key |= low
+    return key
+
+
+def _closed_by_keys(face_points, nxt, edge_cell, bits: int) -> bool:
+    """True when every edge of a cell is used by two of its faces in opposite directions (no edge
+    from a corner to itself); False when any is not (then :func:`_check_closed` says which).
+
+    The same condition as :func:`_check_closed` by two plain sorts: the directed edges
+    (cell, a, b) are all different, and as a multiset equal to the reversed ones (cell, b, a).
+    """
+    b = face_points[nxt]
+    if np.any(face_points == b):
+        return False
+    forward = _pack(_pack(edge_cell, face_points, bits), b, bits)
+    forward.sort()
+    if forward.size > 1 and np.any(forward[1:] == forward[:-1]):
+        return False
+    backward = _pack(_pack(edge_cell, b, bits), face_points, bits)
+    del b
+    backward.sort()
+    return bool(np.array_equal(forward, backward))
 
 
 def _check_closed(face_points, nxt, edge_cell, where: str, ids) -> None:
     """Every edge of a cell used by two of its faces, once in each direction."""
     a, b = face_points, face_points[nxt]
     lo, hi = np.minimum(a, b), np.maximum(a, b)
+    forward = a < b
+    del b
     order, starts = group_columns([edge_cell, lo, hi])
+    del lo, hi
     counts = np.diff(starts, append=order.size)
     bad = counts != 2
     if bad.any():
@@ -157,7 +206,7 @@ def _check_closed(face_points, nxt, edge_cell, where: str, ids) -> None:
         n_bad = int(np.unique(edge_cell[order[starts[bad]]]).size)
         raise _refuse(f"{n_bad} polyhedra are not closed: an edge is used by {int(counts[bad][0])} of the cell's "
                       f"faces instead of 2 (the first: cell {first})", where)
-    forward = (a < b)[order]
+    forward = forward[order]
     same = forward[starts] == forward[starts + 1]
     if same.any():
         cells = edge_cell[order[starts[same]]]
@@ -203,15 +252,20 @@ def split_polyhedra(points: np.ndarray, face_points, face_offsets, face_cell, n_
     their sorted corners (an exact radix sort, :func:`._grouping.group_columns`).
     """
     X = np.asarray(points, dtype=np.float64)
-    face_points = np.asarray(face_points, dtype=np.int64)
     face_offsets = np.asarray(face_offsets, dtype=np.int64)
-    face_cell = np.asarray(face_cell, dtype=np.int64)
     n_points = X.shape[0]
+    # internal index arrays in int32 where every id fits (half the memory of the grouping work)
+    small = index_dtype(max(n_points + np.asarray(face_offsets).size + n_cells, n_cells + 1))
+    face_points = _compact(face_points, small, n_points)
+    face_cell = _compact(face_cell, small, n_cells)
     ids = np.arange(n_cells) if cell_ids is None else np.asarray(cell_ids)
     sizes = _check_faces(n_points, face_points, face_offsets, face_cell, n_cells, where, ids)
     nxt = _next_corners(face_offsets, sizes)
     edge_cell = np.repeat(face_cell, sizes)
-    _check_closed(face_points, nxt, edge_cell, where, ids)
+    bits = _bits(n_points)
+    packed = _bits(n_cells) + 2 * bits <= 63  # (cell, point) and (cell, point, point) keys fit in int64
+    if not (packed and _closed_by_keys(face_points, nxt, edge_cell, bits)):
+        _check_closed(face_points, nxt, edge_cell, where, ids)  # the grouping names what is wrong
 
     # face centres: one per distinct face of four or more corners
     centre_parts, centre_counts, face_centre = [], [], np.full(sizes.size, -1, dtype=np.int64)
@@ -227,11 +281,24 @@ def split_polyhedra(points: np.ndarray, face_points, face_offsets, face_cell, n_
         centre_counts.append(np.full(starts.size, k, dtype=np.int64))
         n_face_centres += starts.size
     # cell centres: the mean of each cell's distinct corners
-    order, starts = group_columns([edge_cell, face_points])
-    distinct = order[starts]
-    centre_parts.append(face_points[distinct])
-    centre_counts.append(np.bincount(edge_cell[distinct], minlength=n_cells))
-    centre_points = np.concatenate(centre_parts)
+    if packed:  # the distinct (cell, corner) keys in increasing order, as the grouping orders them
+        key = _pack(edge_cell, face_points, bits)
+        key.sort()
+        key = key[np.concatenate([[True], key[1:] != key[:-1]])]
+        centre_parts.append(key & np.int64((1 << bits) - 1))
+        key >>= np.int64(bits)
+        centre_counts.append(np.bincount(key, minlength=n_cells))
+        del key
+    else:
+        order, starts = group_columns([edge_cell, face_points])
+        distinct = order[starts]
+        del order, starts
+        centre_parts.append(face_points[distinct])
+        centre_counts.append(np.bincount(edge_cell[distinct], minlength=n_cells))
+        del distinct
+    del edge_cell
+    centre_points = np.concatenate(centre_parts).astype(np.int64, copy=False)
+    del centre_parts
     centre_offsets = np.concatenate([[0], np.cumsum(np.concatenate(centre_counts))]).astype(np.int64)
     cell_centre = n_points + n_face_centres + np.arange(n_cells, dtype=np.int64)
 
@@ -249,11 +316,13 @@ def split_polyhedra(points: np.ndarray, face_points, face_offsets, face_cell, n_
         source[:triangles.size] = face_cell[triangles]
         part[:, 3] = cell_centre[source[:triangles.size]]
     if corner.size:
-        face_of = np.repeat(np.arange(sizes.size), sizes)[corner]
+        face_of = np.repeat(np.arange(sizes.size, dtype=small)[centred], sizes[centred])
         part = tetra[triangles.size:]
         part[:, 0], part[:, 1], part[:, 2] = face_points[nxt[corner]], face_points[corner], face_centre[face_of]
         source[triangles.size:] = face_cell[face_of]
+        del face_of
         part[:, 3] = cell_centre[source[triangles.size:]]
+    del corner, nxt
     if source.size and np.any(source[1:] < source[:-1]):  # faces of several sizes: cell by cell again
         keep = np.argsort(source, kind="stable")
         tetra, source = tetra[keep], source[keep]
@@ -264,12 +333,16 @@ def split_polyhedra(points: np.ndarray, face_points, face_offsets, face_cell, n_
     total = np.bincount(source, weights=volume, minlength=n_cells)
     turn = total < 0
     if turn.any():
-        flip = turn[source]
-        tetra[flip] = tetra[flip][:, [1, 0, 2, 3]]
+        flip = np.flatnonzero(turn[source])
+        first = tetra[flip, 0]
+        tetra[flip, 0] = tetra[flip, 1]
+        tetra[flip, 1] = first
+        del first
         volume[flip] = -volume[flip]
-    return PolyhedraSplit(tetra, source, centre_points, centre_offsets, n_points, n_face_centres,
+    done = PolyhedraSplit(tetra, source, centre_points, centre_offsets, n_points, n_face_centres,
                           reversed_cells=int(np.count_nonzero(turn)),
-                          inverted_tetra=int(np.count_nonzero(volume < 0)))
+                          inverted_tetra=int(np.count_nonzero(volume < 0)), points=Y)
+    return done
 
 
 def _signed_volumes(Y: np.ndarray, tetra: np.ndarray) -> np.ndarray:
