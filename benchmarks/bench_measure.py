@@ -129,6 +129,42 @@ def job_raw(path: str, steps: int) -> dict:
             "step_seconds": t_mesh + data}
 
 
+def baseline_step(grid, positions) -> tuple:
+    """One step of the same-work pyvista pipeline on ``grid`` (point data ``c``): phase volume, range,
+    segregation, contour area, band width, droplets with volumes and centres, the integral of c and
+    the mean of c on a plane at each of ``positions`` along x."""
+    sizes = grid.compute_cell_sizes(length=False, area=False, volume=True)
+    volume = np.abs(sizes.cell_data["Volume"])
+    cell_c = grid.point_data_to_cell_data().cell_data["c"]
+    phase_volume = float(volume @ cell_c)
+    c_min, c_max = float(cell_c.min()), float(cell_c.max())
+    mean = phase_volume / volume.sum()
+    segregation = float(volume @ (cell_c - mean) ** 2 / volume.sum() / (mean * (1 - mean)))
+    contour = grid.contour([0.5], scalars="c")
+    area = float(contour.compute_cell_sizes(length=False, volume=False).cell_data["Area"].sum())
+    band = grid.threshold([0.05, 0.95], scalars="c", preference="point")
+    band_volume = float(band.integrate_data().cell_data["Volume"][0]) if band.n_cells else 0.0
+    width = band_volume / area if area > 0 else float("nan")
+    inside = grid.threshold(0.5, scalars="c", preference="point", all_scalars=False)
+    if inside.n_cells:
+        parts = inside.connectivity()
+        region = parts.cell_data["RegionId"]
+        vol = np.abs(parts.compute_cell_sizes(length=False, area=False).cell_data["Volume"])
+        count = int(region.max()) + 1
+        dv = np.bincount(region, vol, minlength=count)
+        centre = [np.bincount(region, vol * parts.cell_centers().points[:, d], count) / dv
+                  for d in range(3)]
+    else:
+        count, dv, centre = 0, np.zeros(0), []
+    whole = grid.integrate_data()
+    moment = whole.point_data["c"][0]
+    profile = []
+    for p in positions:
+        cut = grid.slice(normal="x", origin=(p, 0.5, 0.5)).integrate_data()
+        profile.append(cut.point_data["c"][0] / cut.cell_data["Area"][0])
+    return c_min, c_max, segregation, width, count, centre, moment, profile
+
+
 def job_baseline(path: str, steps: int) -> dict:
     import meshio
     import pyvista
@@ -145,37 +181,8 @@ def job_baseline(path: str, steps: int) -> dict:
             ts = time.perf_counter()
             _, point_data, _ = reader.read_data(k)
             grid.point_data["c"] = point_data["c"]
-            sizes = grid.compute_cell_sizes(length=False, area=False, volume=True)
-            volume = np.abs(sizes.cell_data["Volume"])
-            cell_c = grid.point_data_to_cell_data().cell_data["c"]
-            phase_volume = float(volume @ cell_c)
-            c_min, c_max = float(cell_c.min()), float(cell_c.max())
-            mean = phase_volume / volume.sum()
-            segregation = float(volume @ (cell_c - mean) ** 2 / volume.sum() / (mean * (1 - mean)))
-            contour = grid.contour([0.5], scalars="c")
-            area = float(contour.compute_cell_sizes(length=False, volume=False).cell_data["Area"].sum())
-            band = grid.threshold([0.05, 0.95], scalars="c", preference="point")
-            band_volume = float(band.integrate_data().cell_data["Volume"][0]) if band.n_cells else 0.0
-            width = band_volume / area if area > 0 else float("nan")
-            inside = grid.threshold(0.5, scalars="c", preference="point", all_scalars=False)
-            if inside.n_cells:
-                parts = inside.connectivity()
-                region = parts.cell_data["RegionId"]
-                vol = np.abs(parts.compute_cell_sizes(length=False, area=False).cell_data["Volume"])
-                count = int(region.max()) + 1
-                dv = np.bincount(region, vol, minlength=count)
-                centre = [np.bincount(region, vol * parts.cell_centers().points[:, d], count) / dv
-                          for d in range(3)]
-            else:
-                count, dv, centre = 0, np.zeros(0), []
-            whole = grid.integrate_data()
-            moment = whole.point_data["c"][0]
-            profile = []
-            for p in positions:
-                cut = grid.slice(normal="x", origin=(p, 0.5, 0.5)).integrate_data()
-                profile.append(cut.point_data["c"][0] / cut.cell_data["Area"][0])
+            baseline_step(grid, positions)
             per_step.append(time.perf_counter() - ts)
-    del (c_min, c_max, segregation, width, count, centre, moment, profile)
     return {"seconds": time.perf_counter() - t0, "per_step": per_step}
 
 
@@ -380,10 +387,15 @@ def main(argv=None) -> None:
     print(" | ".join(keys))
     for row in rows:
         print(" | ".join(_fmt(row.get(k, "")) for k in keys))
-    if args.json:
-        with open(args.json, "w") as handle:
+    finish(everything, args.json, folder, keep=args.keep)
+
+
+def finish(everything, json_path, folder, *, keep) -> None:
+    """Write the results as JSON when asked and remove the series' folder unless it is kept."""
+    if json_path:
+        with open(json_path, "w") as handle:
             json.dump(everything, handle, indent=1, default=str)
-    if not args.keep:
+    if not keep:
         import shutil
 
         shutil.rmtree(folder, ignore_errors=True)

@@ -70,13 +70,22 @@ def write_series(folder, cells, steps):
         # a slab of the rich phase in the middle, relaxing towards the binodal of 298.15 K
         lean, rich = 0.13 - 0.002 * k, 0.87 + 0.002 * k
         x = lean + (rich - lean) * 0.5 * (np.tanh((0.25 - np.abs(z - 0.5)) / 0.03) + 1)
-        name = f"quench_{k}.vtu"
-        to_meshio(mesh, cell_data={"x": x}).write(os.path.join(folder, name))
-        lines.append(f"{0.1 * k},{name}")
+        lines.append(write_step(folder, f"quench_{k}.vtu", 0.1 * k, mesh, {"x": x}))
+    return write_listing(folder, lines), mesh.n_cells
+
+
+def write_step(folder, name, time_value, mesh, cell_data) -> str:
+    """Write one step file; its line of the step listing."""
+    to_meshio(mesh, cell_data=cell_data).write(os.path.join(folder, name))
+    return f"{time_value},{name}"
+
+
+def write_listing(folder, lines) -> str:
+    """Our own ``time,path`` step listing of the lines; its path."""
     listing = os.path.join(folder, "run.steps")
     with open(listing, "w") as handle:
         handle.write("\n".join(lines) + "\n")
-    return listing, mesh.n_cells
+    return listing
 
 
 def step_seconds(result):

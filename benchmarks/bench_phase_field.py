@@ -19,6 +19,7 @@ from __future__ import annotations
 
 import argparse
 import os
+import sys
 import tempfile
 import time
 
@@ -26,9 +27,10 @@ import meshio  # noqa: F401  (imported before any timing: the readers' import is
 import numpy as np
 
 from phasegauge import measure
-from phasegauge.meshgen import grid_mesh, to_meshio
-from phasegauge.run.options import MeasureOptions
-from phasegauge.run.step import StepRunner
+from phasegauge.meshgen import grid_mesh
+
+sys.path.insert(0, os.path.dirname(os.path.abspath(__file__)))
+from bench_miscibility import cpu_step_seconds, step_seconds, write_listing, write_step  # noqa: E402
 
 #: the double well (beta / 4)(phi^2 - 1)^2 with its gradient coefficient
 MODEL = '[model]\nkind = "double-well"\nlean = -1.0\nrich = 1.0\nheight = 0.25\nkappa = 2e-4\n'
@@ -50,34 +52,8 @@ def write_series(folder, cells, steps):
     for k in range(steps):
         phi = pattern(grid.cell_shape, 6.0 + 3.0 * k)  # smoothed over 6, 9, 12, ... cells
         values = phi.ravel()[grid.cell_index]  # the mesh's cells in their grid places
-        name = f"spinodal_{k}.vtu"
-        to_meshio(mesh, cell_data={"phi": values}).write(os.path.join(folder, name))
-        lines.append(f"{1.0 + k},{name}")
-    listing = os.path.join(folder, "run.steps")
-    with open(listing, "w") as handle:
-        handle.write("\n".join(lines) + "\n")
-    return listing, mesh.n_cells
-
-
-def step_seconds(result):
-    return float(np.median([r.seconds for r in result.results[1:]]))
-
-
-def cpu_step_seconds(listing, option_sets, steps, rounds):
-    """Median CPU seconds of a step for each option set: step runners taking turns, step by step."""
-    runners = [StepRunner(listing, MeasureOptions(**options)) for options in option_sets]
-    for runner in runners:  # the first step builds the mesh's caches
-        runner.run(0)
-    spent = [[] for _ in runners]
-    for _ in range(max(1, rounds)):
-        for index in range(1, steps):
-            for runner, out in zip(runners, spent):
-                start = time.process_time()
-                runner.run(index)
-                out.append(time.process_time() - start)
-    for runner in runners:
-        runner.close()
-    return [float(np.median(out)) for out in spent]
+        lines.append(write_step(folder, f"spinodal_{k}.vtu", 1.0 + k, mesh, {"phi": values}))
+    return write_listing(folder, lines), mesh.n_cells
 
 
 def main():

@@ -41,7 +41,7 @@ import numpy as np
 
 sys.path.insert(0, os.path.dirname(os.path.abspath(__file__)))
 
-from bench_measure import SECTIONS, _cpu_seconds, droplet_field  # noqa: E402
+from bench_measure import SECTIONS, _cpu_seconds, baseline_step, droplet_field  # noqa: E402
 
 CONFIGS = ("baseline", "polyhedra", "hexahedra")
 
@@ -85,26 +85,8 @@ def job_baseline(folder: str) -> dict:
         grid = pyvista.read(os.path.join(folder, name))
         lo, hi = grid.bounds[0], grid.bounds[1]
         positions = lo + (np.arange(SECTIONS) + 0.5) * (hi - lo) / SECTIONS
-        volume = np.abs(grid.compute_cell_sizes(length=False, area=False, volume=True).cell_data["Volume"])
-        cell_c = grid.point_data_to_cell_data().cell_data["c"]
-        phase_volume = float(volume @ cell_c)
-        mean = phase_volume / volume.sum()
-        segregation = float(volume @ (cell_c - mean) ** 2 / volume.sum() / (mean * (1 - mean)))
-        contour = grid.contour([0.5], scalars="c")
-        area = float(contour.compute_cell_sizes(length=False, volume=False).cell_data["Area"].sum())
-        band = grid.threshold([0.05, 0.95], scalars="c", preference="point")
-        band_volume = float(band.integrate_data().cell_data["Volume"][0]) if band.n_cells else 0.0
-        width = band_volume / area if area > 0 else float("nan")
-        inside = grid.threshold(0.5, scalars="c", preference="point", all_scalars=False)
-        count = 0
-        if inside.n_cells:
-            parts = inside.connectivity()
-            count = int(parts.cell_data["RegionId"].max()) + 1
-        moment = grid.integrate_data().point_data["c"][0]
-        profile = [grid.slice(normal="x", origin=(p, 0.5, 0.5)).integrate_data().point_data["c"][0]
-                   for p in positions]
+        baseline_step(grid, positions)
         per_step.append(time.perf_counter() - ts)
-    del segregation, width, count, moment, profile
     return {"seconds": time.perf_counter() - t0, "per_step": per_step}
 
 

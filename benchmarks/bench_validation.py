@@ -43,7 +43,7 @@ import time
 import numpy as np
 
 sys.path.insert(0, os.path.dirname(os.path.abspath(__file__)))
-from bench_measure import build, droplet_field  # noqa: E402  (the same series as the measure benchmark)
+from bench_measure import build, droplet_field, finish  # noqa: E402  (the same series as the measure benchmark)
 
 SECTIONS = 20
 
@@ -297,13 +297,7 @@ def main(argv=None) -> None:
     print("\nsummary (targets: probes and lines <= 1.05 x a step; a campaign on W workers scales like the runs)")
     for name, res in everything.items():
         print(name + ": " + "  ".join(f"{k}={_fmt(v)}" for k, v in res["row"].items()))
-    if args.json:
-        with open(args.json, "w") as handle:
-            json.dump(everything, handle, indent=1, default=str)
-    if not args.keep:
-        import shutil
-
-        shutil.rmtree(folder, ignore_errors=True)
+    finish(everything, args.json, folder, keep=args.keep)
 
 
 if __name__ == "__main__":
