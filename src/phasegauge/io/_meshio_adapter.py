@@ -115,6 +115,8 @@ def convex_point_sets(raw):
     every piece, and their centres are added as points (point data: the corners' mean). How the
     cells were read is kept as ``raw.convex_point_sets`` (a phrase), else None.
     """
+    from meshio import CellBlock
+
     from ..model.convex_cells import ConvexCells, convert_convex_point_sets
 
     raw.convex_point_sets = None
@@ -146,16 +148,10 @@ def convex_point_sets(raw):
             values = np.asarray(values)
             if np.issubdtype(values.dtype, np.number):
                 raw.point_data[name] = np.concatenate([values] + [values[c].mean(axis=1) for c in corners])
-    raw.cells = [_cell_block(t, c) for t, c in new_blocks]
+    raw.cells = [CellBlock(t, c) for t, c in new_blocks]
     raw.cell_data = new_data
     raw.convex_point_sets = f"convex point set cells (VTK 41) read {out.words()}"
     return raw
-
-
-def _cell_block(cell_type, data):
-    from meshio import CellBlock
-
-    return CellBlock(cell_type, data)
 
 
 def read_with_meshio(path: str, fmt: str, *, fallback=None):

@@ -89,8 +89,7 @@ class ConvexCells:
         return ", ".join(parts)
 
 
-def convert_convex_point_sets(points: np.ndarray, cells: np.ndarray, out: ConvexCells | None = None,
-                              *, rows: np.ndarray | None = None) -> ConvexCells:
+def convert_convex_point_sets(points: np.ndarray, cells: np.ndarray, out: ConvexCells | None = None) -> ConvexCells:
     """Turn convex point set cells with ``k`` corners each into ordinary cells.
 
     Parameters
@@ -100,8 +99,6 @@ def convert_convex_point_sets(points: np.ndarray, cells: np.ndarray, out: Convex
         Corner indices of each cell, in any order.
     out : ConvexCells, optional
         Collects the result of several blocks (one per corner count).
-    rows : ndarray of shape (m,), optional
-        Row of each cell among all input cells (default ``arange(m)``).
 
     Returns
     -------
@@ -109,7 +106,7 @@ def convert_convex_point_sets(points: np.ndarray, cells: np.ndarray, out: Convex
     """
     out = ConvexCells() if out is None else out
     cells = np.asarray(cells, dtype=np.int64)
-    rows = np.arange(len(cells)) if rows is None else np.asarray(rows)
+    rows = np.arange(len(cells))
     if len(cells) == 0:
         return out
     k = cells.shape[1]
@@ -126,9 +123,7 @@ def convert_convex_point_sets(points: np.ndarray, cells: np.ndarray, out: Convex
         return out
     if k == 4:
         tets = cells[solid].copy()
-        p = xyz[solid]
-        vol = np.einsum("ij,ij->i", np.cross(p[:, 1] - p[:, 0], p[:, 2] - p[:, 0]), p[:, 3] - p[:, 0])
-        flip = vol < 0
+        flip = _six_volumes(xyz[solid]) < 0
         tets[flip, 1], tets[flip, 2] = cells[solid][flip, 2], cells[solid][flip, 1]
         out.add("tetra", tets, rows[solid])
         return out
@@ -140,6 +135,11 @@ def convert_convex_point_sets(points: np.ndarray, cells: np.ndarray, out: Convex
     if len(rest):
         _split_about_centre(np.asarray(points, dtype=np.float64), cells[rest], rows[rest], out)
     return out
+
+
+def _six_volumes(p: np.ndarray) -> np.ndarray:
+    """Six times the signed volume of each tetrahedron, corners ``p`` of shape (m, 4, 3)."""
+    return np.einsum("ij,ij->i", np.cross(p[:, 1] - p[:, 0], p[:, 2] - p[:, 0]), p[:, 3] - p[:, 0])
 
 
 def _planar_cells(local, frames, cells, rows, out: ConvexCells) -> None:
@@ -217,9 +217,7 @@ def _split_about_centre(points, cells, rows, out: ConvexCells) -> None:
         owner.append(np.full(len(tri), i))
     tets = np.concatenate(tets)
     owner = np.concatenate(owner)
-    p = np.concatenate([points[tets[:, :3]], centres[owner][:, None]], axis=1)
-    vol = np.einsum("ij,ij->i", np.cross(p[:, 1] - p[:, 0], p[:, 2] - p[:, 0]), p[:, 3] - p[:, 0])
-    flip = vol < 0
+    flip = _six_volumes(np.concatenate([points[tets[:, :3]], centres[owner][:, None]], axis=1)) < 0
     tets[flip, 0], tets[flip, 1] = tets[flip, 1].copy(), tets[flip, 0].copy()
     out.centre_corners.append(cells)
     out.add("tetra", tets, rows[owner], count="split")
