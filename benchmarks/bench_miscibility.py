@@ -23,6 +23,7 @@ from __future__ import annotations
 
 import argparse
 import os
+import sys
 import tempfile
 import time
 
@@ -37,17 +38,11 @@ from phasegauge.meshgen import grid_mesh, to_meshio
 from phasegauge.run.options import MeasureOptions
 from phasegauge.run.step import StepRunner
 
+sys.path.insert(0, os.path.dirname(os.path.abspath(__file__)))
+from bench_droplets import _best as best  # noqa: E402  (the same fastest-of-N timing helper)
+
 ROOT = os.path.dirname(os.path.dirname(os.path.abspath(__file__)))
 MODEL = os.path.join(ROOT, "sample_fields", "solvent_pair.toml")
-
-
-def best(fn, repeat):
-    times = []
-    for _ in range(repeat):
-        start = time.perf_counter()
-        value = fn()
-        times.append(time.perf_counter() - start)
-    return min(times), value
 
 
 def scipy_binodal(model, temperature, guess=(0.1, 0.9)):

@@ -33,9 +33,7 @@ in a temporary folder first (about a minute for 1M cells) unless ``--keep`` name
 from __future__ import annotations
 
 import argparse
-import json
 import os
-import resource
 import sys
 import tempfile
 import time
@@ -43,16 +41,9 @@ import time
 import numpy as np
 
 sys.path.insert(0, os.path.dirname(os.path.abspath(__file__)))
-from bench_measure import build, droplet_field, finish  # noqa: E402  (the same series as the measure benchmark)
+from bench_measure import _cpu_seconds, build, droplet_field, finish  # noqa: E402  (the same series as the measure benchmark)
 
 SECTIONS = 20
-
-
-def _cpu_seconds() -> float:
-    """CPU seconds of this process and its finished children (worker processes)."""
-    own = resource.getrusage(resource.RUSAGE_SELF)
-    kids = resource.getrusage(resource.RUSAGE_CHILDREN)
-    return own.ru_utime + own.ru_stime + kids.ru_utime + kids.ru_stime
 
 
 # ------------------------------------------------------------------ probes and lines

@@ -127,7 +127,7 @@ def lay_out_column(figure, dpi: float) -> bool:
     rows = {}
     for ax, spec in zip(axes, specs):
         rows.setdefault((spec.rowspan.start, spec.rowspan.stop), []).append(ax)
-    if len({span for span in rows}) != len({span[0] for span in rows}):
+    if len(rows) != len({span[0] for span in rows}):  # two row spans starting on the same row overlap
         return False
     left = right = 0.0
     tops, bottoms = [], []

@@ -181,11 +181,13 @@ def _key_figures(result) -> list:
     add("mixing index, last step", "mixing_index", lambda v: v[-1])
     add("mixing length, first step", "mixing_length", lambda v: v[0])
     add("mixing length, last step", "mixing_length", lambda v: v[-1])
-    add("bulk composition, lean phase, last measured", "bulk_composition_lean", lambda v: v[np.isfinite(v)][-1])
-    add("bulk composition, rich phase, last measured", "bulk_composition_rich", lambda v: v[np.isfinite(v)][-1])
-    add("gap to the binodal, last separated step", "equilibrium_gap", lambda v: v[np.isfinite(v)][-1])
-    add("partition coefficient of the solute, last measured", "partition_coefficient",
-        lambda v: v[np.isfinite(v)][-1])
+    def last_finite(values):
+        return values[np.isfinite(values)][-1]
+
+    add("bulk composition, lean phase, last measured", "bulk_composition_lean", last_finite)
+    add("bulk composition, rich phase, last measured", "bulk_composition_rich", last_finite)
+    add("gap to the binodal, last separated step", "equilibrium_gap", last_finite)
+    add("partition coefficient of the solute, last measured", "partition_coefficient", last_finite)
     audit = result.audit or {}
     if audit.get("interface_kind") in ("diffuse", "sharp"):
         cells = audit.get("cells_across")

@@ -35,14 +35,13 @@ def plot_compositions_on_diagram(steps, diagram: dict):
     temperature = steps["temperature"].to_numpy(dtype=float)
     span = (float(np.nanmin(time)), float(np.nanmax(time))) if len(time) else (0.0, 1.0)
     norm = dict(vmin=span[0], vmax=span[1] if span[1] > span[0] else span[0] + 1.0, cmap="viridis")
-    shown = None
-    for column, marker in (("bulk_composition_lean", "o"), ("bulk_composition_rich", "o")):
-        shown = ax.scatter(steps[column].to_numpy(dtype=float), temperature, c=time, marker=marker, s=26,
+    for column in ("bulk_composition_lean", "bulk_composition_rich"):
+        shown = ax.scatter(steps[column].to_numpy(dtype=float), temperature, c=time, marker="o", s=26,
                            edgecolors="0.2", linewidths=0.5,
                            label="bulk compositions" if column.endswith("lean") else None, **norm)
     ax.scatter(steps["mean_composition"].to_numpy(dtype=float), temperature, c=time, marker="x", s=26,
                label="mean composition", **norm)
-    if shown is not None and len(time):
+    if len(time):
         figure.colorbar(shown, ax=ax, label=TIME_LABEL)
     ax.set_xlim(0.0, 1.0)
     ax.set_ylim(float(np.min(t)), float(np.max(t)))

@@ -16,7 +16,7 @@ import numpy as np
 
 from ..meshgen import grid_mesh
 from ..model.mixture_models import NrtlModel
-from ._cahn_hilliard import cahn_hilliard, spectral_grid
+from ._cahn_hilliard import _wavenumbers, cahn_hilliard, spectral_grid
 from ._writers import write_xdmf_series
 
 __all__ = ["SOLVENT_QUENCH", "solvent_pair_model", "nrtl_force", "solvent_quench_fields", "write_solvent_quench"]
@@ -41,6 +41,10 @@ SOLVENT_QUENCH = {
     "solute_dt": 2e-5,
     "seed": 11,
 }
+
+#: binodal of the solvent pair at the cold temperature (lean, rich mole fraction of A), from
+#: phasegauge.analysis.thermo.equilibrium_at(solvent_pair_model(), 298.15)
+_COLD_BINODAL = (0.1186326, 0.8817626)
 
 
 def solvent_pair_model() -> NrtlModel:
@@ -70,11 +74,9 @@ def _advance_solute(s, x, duration, params):
 
     Its equilibrium is s ~ exp(beta x), beta = ln K / (0.8818 - 0.1186), so K between the liquids.
     """
-    from ._cahn_hilliard import _wavenumbers
-
     if duration <= 0:
         return s
-    beta = np.log(params["solute_partition"]) / (0.8817626 - 0.1186326)
+    beta = np.log(params["solute_partition"]) / (_COLD_BINODAL[1] - _COLD_BINODAL[0])
     k = _wavenumbers(s.shape, params["box"])
     k2 = sum(kk ** 2 for kk in k)
     axes = tuple(range(s.ndim))
@@ -100,7 +102,7 @@ def solvent_quench_fields(params=SOLVENT_QUENCH):
     """
     model = solvent_pair_model()
     cold, hot = params["cold"], params["hot"]
-    scale = _force_scale(model, cold, 0.1186326)
+    scale = _force_scale(model, cold, _COLD_BINODAL[0])
     rng = np.random.default_rng(params["seed"])
     x0 = params["mean_composition"] + params["noise"] * rng.standard_normal(params["grid"])
     common = dict(epsilon=params["epsilon"], mobility=params["mobility"], dt=params["dt"],
