@@ -23,8 +23,8 @@ from ..model.mixture_models import DoubleWellModel
 from ._binodal import _stability, binodal, spinodal
 from ._signed_distance import _ContourGeometry, _maybe_near, _signed_distance
 
-__all__ = ["interface_distance", "bulk_compositions", "mixture_state", "solute_distribution", "equilibrium_gap", "gibbs_thomson_shift",
-           "MIXTURE_STATES"]
+__all__ = ["interface_distance", "bulk_compositions", "mixture_state", "solute_distribution", "equilibrium_gap",
+           "gibbs_thomson_shift", "MIXTURE_STATES"]
 
 MIXTURE_STATES = ("stable", "metastable", "unstable")
 #: a cell whose corners' mean distance lies farther than this many cell sizes from the bulk
