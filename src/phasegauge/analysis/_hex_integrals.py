@@ -46,6 +46,7 @@ from ..model._grouping import index_dtype
 from ..model._split_tables import TABLE_DIAGONALS
 from ..model.simplices import _split_plan
 from ._signed_distance import _ContourGeometry, _signed_distance
+from ._width_integrals import _SplitBand, _band_volume
 
 #: cells per chunk (the chunk's temporaries, about 150 arrays of this many floats, stay in cache)
 _CELL_CHUNK = 1 << 12
@@ -78,12 +79,6 @@ def coned_hexahedra(mesh: Mesh) -> list | None:
         return out if any(rows.size for rows, _ in out) else None
 
     return mesh.memo("coned_hexahedra", compute)
-
-
-def _band_of(measures: np.ndarray, values: list) -> float:
-    from ._width_integrals import _band_volume
-
-    return _band_volume(measures, values)
 
 
 def _tetrahedra(code: int) -> tuple:
@@ -216,10 +211,10 @@ class _HexCells:
         cut = np.flatnonzero(~inside & (high >= _LOW) & (low <= _HIGH))
         if cut.size:  # all tetrahedra of these cells in one pass
             vc = [x[cut] for x in v]
-            self.band += _band_of(volumes[:, cut].ravel(), [np.concatenate([vc[a] for a, _, _ in tets]),
-                                                             np.concatenate([vc[b] for _, b, _ in tets]),
-                                                             np.concatenate([vc[f] for _, _, f in tets]),
-                                                             np.tile(vm[cut], len(tets))])
+            self.band += _band_volume(volumes[:, cut].ravel(), [np.concatenate([vc[a] for a, _, _ in tets]),
+                                                                np.concatenate([vc[b] for _, b, _ in tets]),
+                                                                np.concatenate([vc[f] for _, _, f in tets]),
+                                                                np.tile(vm[cut], len(tets))])
         self.chunks.append((tets, conn, weights))
 
     def moments(self, dist: np.ndarray) -> np.ndarray:
@@ -252,8 +247,6 @@ class _HexBand:
     """
 
     def __init__(self, mesh: Mesh, clipped: np.ndarray, active: np.ndarray, rows: list, low, high):
-        from ._width_integrals import _SplitBand
-
         self.mesh, self.values = mesh, clipped
         mine = []
         rest = active.copy()

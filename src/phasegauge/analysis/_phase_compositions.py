@@ -21,9 +21,10 @@ from ..model._statistics import weighted_quantile
 from ..model.corners import corner_mean
 from ..model.mixture_models import DoubleWellModel
 from ._binodal import _stability, binodal, spinodal
+from ._signed_distance import _ContourGeometry, _maybe_near, _signed_distance
 
-__all__ = ["interface_distance", "bulk_compositions", "mixture_state", "solute_distribution", "equilibrium_gap", "gibbs_thomson_shift",
-           "MIXTURE_STATES"]
+__all__ = ["interface_distance", "bulk_compositions", "mixture_state", "solute_distribution", "equilibrium_gap",
+           "gibbs_thomson_shift", "MIXTURE_STATES"]
 
 MIXTURE_STATES = ("stable", "metastable", "unstable")
 #: a cell whose corners' mean distance lies farther than this many cell sizes from the bulk
@@ -81,8 +82,6 @@ def interface_distance(mesh, c_cell, contour, *, level=0.5, reach=np.inf, measur
     off the contour); equidistant elements may resolve to another one than in the width
     estimators' search.
     """
-    from ._signed_distance import _ContourGeometry, _maybe_near, _signed_distance
-
     c = np.asarray(c_cell, dtype=float)
     positive = c > level
     if contour is None or contour.n_elements == 0:

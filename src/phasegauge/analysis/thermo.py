@@ -15,9 +15,9 @@ from ..model.mixture_models import (MODEL_KINDS, DoubleWellModel, NrtlModel, Reg
                                     nrtl_ln_gamma)
 from ._binodal import (BinaryEquilibrium, CriticalPoint, binodal, critical_points, equilibrium_at,
                        phase_diagram, spinodal)
-from ._phase_compositions import (MIXTURE_STATES, bulk_compositions, interface_distance, equilibrium_gap, gibbs_thomson_shift,
-                                  mixture_state, solute_distribution)
 from ._equilibrium import EQUILIBRIUM_KEYS, equilibrium_metrics
+from ._phase_compositions import (MIXTURE_STATES, bulk_compositions, equilibrium_gap, gibbs_thomson_shift,
+                                  interface_distance, mixture_state, solute_distribution)
 from ._tie_lines import TieLine, liquid_liquid_split, nrtl_split, nrtl_tau
 
 __all__ = ["NrtlModel", "RegularSolutionModel", "DoubleWellModel", "nrtl_ln_gamma", "MODEL_KINDS",

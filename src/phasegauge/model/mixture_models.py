@@ -31,14 +31,15 @@ from ..errors import OptionError
 from ._numbers import finite_number
 
 
-def _finite_number(name: str, value, *, example: str) -> float:
-    """``value`` as a finite float, or an :class:`OptionError` naming the model key."""
-    return finite_number(name, value, fix=f"write {name} = {example}")
-
 __all__ = ["NrtlModel", "RegularSolutionModel", "DoubleWellModel", "nrtl_ln_gamma", "MODEL_KINDS"]
 
 #: the ``kind`` names of the model file
 MODEL_KINDS = ("nrtl", "regular", "double-well")
+
+
+def _finite_number(name: str, value, *, example: str) -> float:
+    """``value`` as a finite float, or an :class:`OptionError` naming the model key."""
+    return finite_number(name, value, fix=f"write {name} = {example}")
 
 
 def check_kappa(value):
