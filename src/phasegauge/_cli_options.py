@@ -24,9 +24,7 @@ def _floats(text, what, count=None):
         raise OptionError(f"{what} must be numbers separated by commas, found {text!r}",
                           fix="for example 0.1,0.2") from None
     if count is not None and len(values) != count:
-        from .errors import OptionError as _O
-
-        raise _O(f"{what} needs {count} numbers, found {len(values)}", fix="separate them with commas")
+        raise OptionError(f"{what} needs {count} numbers, found {len(values)}", fix="separate them with commas")
     return values
 
 
@@ -132,13 +130,7 @@ def _command_line() -> dict:
 
 def _point_options(probe_file, line_file, measured_file) -> dict:
     """MeasureOptions entries read from the probe, line and measured files that are given."""
-    from .io import read_line_file, read_measured_file, read_probe_file
+    from .recipes import _point_options as read_point_files
 
-    given = {}
-    if probe_file:
-        given["probes"] = read_probe_file(probe_file)
-    if line_file:
-        given["lines"] = read_line_file(line_file)
-    if measured_file:
-        given["measured"] = read_measured_file(measured_file)
-    return given
+    files = {"probes": probe_file, "lines": line_file, "measured": measured_file}
+    return read_point_files({key: path for key, path in files.items() if path})

@@ -386,17 +386,12 @@ def measure_arguments(recipe: dict) -> dict:
         sort_by_time=inp.get("sort_by_time", False), keep_3d=inp.get("keep_3d", False), steps=inp.get("steps"),
         time_from=inp.get("time_from"), time_to=inp.get("time_to"), every=inp.get("every", 1),
         **recipe.get("phase_field", {}), **_point_options(recipe.get("validation", {})),
-        **_mixture_options(recipe.get("miscibility", {})))
+        **recipe.get("miscibility", {}))
     return dict(path=inp.get("path"), options=options, out=out["folder"], overwrite=out.get("overwrite", False),
                 workers=run.get("workers", 1), scheduler=run.get("scheduler"),
                 contours=iface.get("contours", True), snapshots=run.get("snapshots", 4),
                 plot_format=out.get("plot_format", "png"), keep_cache=out.get("keep_cache", False),
                 invocation={"recipe": recipe.get("recipe_text", ""), "recipe_path": recipe.get("recipe_path", "")})
-
-
-def _mixture_options(miscibility: dict) -> dict:
-    """MeasureOptions entries of a recipe's [miscibility] table."""
-    return dict(miscibility)
 
 
 def _check_miscibility(miscibility: dict, path: str) -> None:
@@ -406,7 +401,7 @@ def _check_miscibility(miscibility: dict, path: str) -> None:
     if "model" not in miscibility:
         raise OptionError("[miscibility] needs 'model'", where=path, fix='add model = "MODEL.toml"')
     try:
-        MeasureOptions(field="c", **_mixture_options(miscibility))
+        MeasureOptions(field="c", **miscibility)
     except OptionError as err:
         raise OptionError(f"[miscibility] {err.what}", where=err.where or path, fix=err.fix) from None
 

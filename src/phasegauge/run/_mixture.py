@@ -39,6 +39,18 @@ def _positive(value, name, fix):
     return value
 
 
+def _one_temperature(options, needs: str) -> dict:
+    """The checked temperature entry of ``options`` (empty with a temperature field): ``needs``
+    one temperature, a value or a field."""
+    if (options.temperature is None) == (options.temperature_field is None):
+        raise OptionError(f"{needs} needs one temperature: a value or a field, not "
+                          + ("both" if options.temperature is not None else "neither"),
+                          fix="give --temperature 298.15 or --temperature-field NAME")
+    if options.temperature is None:
+        return {}
+    return {"temperature": _positive(options.temperature, "temperature", "give it in K, for example 298.15")}
+
+
 def normalize_mixture(options) -> dict:
     """The mixture options of ``options`` checked and normalised (a dict of the values to set).
 
@@ -52,13 +64,8 @@ def normalize_mixture(options) -> dict:
     activity_energy = getattr(options.free_energy, "kind", "double-well") != "double-well"
     if model is None:
         if activity_energy:  # the free energy of an activity model needs the run's temperature
-            if (options.temperature is None) == (options.temperature_field is None):
-                raise OptionError("the free energy of an activity model needs one temperature: a value or a "
-                                  "field, not " + ("both" if options.temperature is not None else "neither"),
-                                  fix="give --temperature 298.15 or --temperature-field NAME")
+            out.update(_one_temperature(options, "the free energy of an activity model"))
             given = [name for name in given if name not in ("temperature", "temperature_field")]
-            if options.temperature is not None:
-                out["temperature"] = _positive(options.temperature, "temperature", "give it in K, for example 298.15")
         if given:
             raise OptionError(f"{given[0].replace('_', ' ')} is given without a mixture model",
                               fix="give the model file with --model MODEL.toml")
@@ -71,12 +78,7 @@ def normalize_mixture(options) -> dict:
         raise OptionError(f"model must be a mixture model or a model file, found {type(model).__name__}",
                           fix="give --model MODEL.toml (see sample_fields/solvent_pair.toml)")
     out["model"] = model
-    if (options.temperature is None) == (options.temperature_field is None):
-        raise OptionError("a mixture model needs one temperature: a value or a field, not "
-                          + ("both" if options.temperature is not None else "neither"),
-                          fix="give --temperature 298.15 or --temperature-field NAME")
-    if options.temperature is not None:
-        out["temperature"] = _positive(options.temperature, "temperature", "give it in K, for example 298.15")
+    out.update(_one_temperature(options, "a mixture model"))
     for name in ("temperature_field", "solute"):
         value = getattr(options, name)
         if value is not None and (not isinstance(value, str) or not value):

@@ -104,8 +104,8 @@ def run_campaign(runs: list, options, *, out, parameter: str = "parameter", unit
     workers : int
         Local worker processes for the whole campaign. Runs are measured side by
         side, one process each and each run serial inside, up to ``workers`` at a
-        time; when fewer runs are left than workers, each run gets
-        ``workers // runs`` processes for its steps. ``workers=1`` measures the runs
+        time; when fewer runs are to measure than workers, each run gets
+        ``workers // runs`` processes for its steps (fixed at the start). ``workers=1`` measures the runs
         one after another in this process. The tables do not depend on it.
     progress : bool or None
         As for ``measure``; the line names the run (or, side by side, the runs

@@ -21,8 +21,8 @@ from typing import TYPE_CHECKING
 
 import numpy as np
 
-from ..errors import OldNameWarning, OptionError, PhasegaugeWarning
-from .options import accept_old_names
+from ..errors import OptionError, PhasegaugeWarning
+from .options import MeasureOptions, accept_old_names
 
 if TYPE_CHECKING:  # pandas is imported where the tables are built
     import pandas as pd
@@ -48,11 +48,7 @@ class RunSpec:
     field_location: str = "auto"  # which copy of a field written on cells and on points (auto: cells)
     sort_by_time: bool = False  # order the steps by the times in their files
 
-    @property
-    def value_range(self) -> tuple:
-        """The old name of :attr:`range` (with an :class:`OldNameWarning`)."""
-        warnings.warn(OldNameWarning("'value_range' is the old name of 'range'"), stacklevel=2)
-        return self.range
+    value_range = MeasureOptions.value_range  # the old name of range (warns), as on the options
 
 
 @dataclass
@@ -122,7 +118,7 @@ def _compare_runs(first, second, *, out, overwrite, level, time_tolerance, spaci
     from ..analysis import references
     from ..io import Series, read_reference_table
     from ._compare_steps import paired_shapes, plan_sampling
-    from .measure import MeasureOptions, measure
+    from .measure import measure
 
     if not 0 < level < 1:
         raise OptionError(f"level must lie strictly between 0 and 1, found {level}", fix="usually 0.5")

@@ -240,9 +240,9 @@ def analyse_step(step, options, *, contour_dir: str | None = None, reported_mesh
             profile.insert(0, "time", step.time)
             profile.insert(0, "step", step.index)
             result.profile = profile
-    if getattr(options, "coarsening", False):
+    if options.coarsening:
         m["coarsening_length"] = mixing.coarsening_length(mesh, ind.cell)
-    if getattr(options, "free_energy", None) is not None:
+    if options.free_energy is not None:
         m.update(_equilibrium(step, mesh, ind, options, m.get("interface_size")))
     if options.model is not None:  # a partially miscible mixture: bulk compositions against the model
         from ._mixture import mixture_step
