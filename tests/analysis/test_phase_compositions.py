@@ -168,3 +168,22 @@ def test_far_cells_skipped_by_the_bucket_test_are_farther_than_reach():
         near = _maybe_near(points, centres, reach)
         within = cdist(points, centres).min(axis=1) <= reach
         np.testing.assert_array_equal(near, within)
+
+
+def test_bucket_test_on_the_mesh_fixed_grid_agrees_with_brute_force():
+    # scipy's brute-force distances again, for the cell centroids of a mesh tested on its fixed
+    # bucket grid (2D and 3D; reach below and above the grid's side, where it falls back)
+    from scipy.spatial.distance import cdist
+
+    from phasegauge.analysis._signed_distance import _centroid_buckets, _maybe_near_cells
+
+    rng = np.random.default_rng(11)
+    for mesh in (grid_mesh((40, 40), kind="triangle"), grid_mesh((14, 14, 14), kind="tetra")):
+        dim = mesh.dimension
+        centres = rng.uniform(0.3, 0.6, (150, dim))
+        cells = np.sort(rng.choice(mesh.n_cells, mesh.n_cells // 2, replace=False))
+        side = _centroid_buckets(mesh).side
+        for reach in (0.5 * side, 2.5 * side, 0.05, 0.2):
+            near = _maybe_near_cells(mesh, cells, centres, reach)
+            within = cdist(mesh.cell_centroids[cells], centres).min(axis=1) <= reach
+            np.testing.assert_array_equal(near, within)

@@ -21,7 +21,7 @@ from ..model._statistics import weighted_quantile
 from ..model.corners import corner_mean
 from ..model.mixture_models import DoubleWellModel
 from ._binodal import _stability, binodal, spinodal
-from ._signed_distance import _ContourGeometry, _maybe_near, _signed_distance
+from ._signed_distance import _ContourGeometry, _maybe_near_cells, _signed_distance
 
 __all__ = ["interface_distance", "bulk_compositions", "mixture_state", "solute_distribution", "equilibrium_gap",
            "gibbs_thomson_shift", "MIXTURE_STATES"]
@@ -116,7 +116,7 @@ def interface_distance(mesh, c_cell, contour, *, level=0.5, reach=np.inf, measur
         rows = np.flatnonzero(open_)
         unknown = np.flatnonzero(unknown)
     if limited:  # cells with no element centroid within reach: nothing to search
-        unknown = unknown[_maybe_near(points[unknown], geometry.centroids[:, list(contour.plane_axes)], reach)]
+        unknown = unknown[_maybe_near_cells(mesh, unknown, geometry.centroids[:, list(contour.plane_axes)], reach)]
     rows = np.concatenate([rows, unknown])
     if rows.size:
         dist[rows] = np.abs(_signed_distance(points[rows], c[rows], geometry, contour.plane_axes, level,
@@ -174,8 +174,9 @@ def bulk_compositions(mesh, composition, distance, *, width, multiple=4.0):
     """
     values, dist, weights = _cell_arrays(mesh, composition, distance)
     sides = []
+    finite = np.isfinite(values)
     for mask in _bulk_masks(dist, float(width), float(multiple)):
-        mask = mask & np.isfinite(values)
+        mask &= finite
         v, w = values[mask], weights[mask]
         if v.size == 0:
             sides.append((np.nan, np.nan, 0))

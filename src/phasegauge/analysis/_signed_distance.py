@@ -55,7 +55,6 @@ def _maybe_near(points: np.ndarray, centres: np.ndarray, reach: float) -> np.nda
     tree). A search bounded by ``reach`` finds nothing for the points called far.
     """
     from scipy.ndimage import distance_transform_edt
-    from scipy.spatial import cKDTree
 
     near = np.zeros(points.shape[0], dtype=bool)
     if centres.shape[0] == 0 or points.shape[0] == 0:
@@ -82,13 +81,75 @@ def _maybe_near(points: np.ndarray, centres: np.ndarray, reach: float) -> np.nda
         flat += q
     kept = np.flatnonzero(~outside)
     kept = kept[close.ravel()[flat[kept]]]
-    if kept.size:
-        tree = cKDTree(centres, balanced_tree=False, compact_nodes=True)
-        for lo_row in range(0, kept.size, _QUERY_CHUNK):
-            rows = kept[lo_row:lo_row + _QUERY_CHUNK]
-            # a little beyond reach: rounding in the tree's distances never drops a point
-            found, _ = tree.query(points[rows], k=1, distance_upper_bound=reach * (1 + 1e-9))
-            near[rows] = np.isfinite(found)
+    near[kept] = _any_within(points[kept], centres, reach)
+    return near
+
+
+def _any_within(points: np.ndarray, centres: np.ndarray, reach: float) -> np.ndarray:
+    """Whether any centre lies within ``reach`` of each point (a tree with nodes shrunk to their points)."""
+    from scipy.spatial import cKDTree
+
+    near = np.zeros(points.shape[0], dtype=bool)
+    if points.shape[0] == 0:
+        return near
+    tree = cKDTree(centres, balanced_tree=False, compact_nodes=True)
+    for lo_row in range(0, points.shape[0], _QUERY_CHUNK):
+        # a little beyond reach: rounding in the tree's distances never drops a point
+        found, _ = tree.query(points[lo_row:lo_row + _QUERY_CHUNK], k=1, distance_upper_bound=reach * (1 + 1e-9))
+        near[lo_row:lo_row + _QUERY_CHUNK] = np.isfinite(found)
+    return near
+
+
+class _CentroidBuckets(NamedTuple):
+    """A fixed grid of buckets over a mesh's box and the bucket of every cell centroid."""
+
+    lo: np.ndarray
+    side: float
+    shape: tuple
+    flat: np.ndarray  # int32 flat bucket index of each cell centroid
+
+
+def _centroid_buckets(mesh) -> _CentroidBuckets:
+    """The mesh's fixed bucket grid (about ``_MAX_BUCKETS`` buckets over its points' box), once per mesh."""
+
+    def compute():
+        coords = mesh.coordinates
+        lo, hi = coords.min(axis=0), coords.max(axis=0)
+        extent = np.maximum(hi - lo, 1e-300)
+        dim = coords.shape[1]
+        side = float(np.prod(extent) / _MAX_BUCKETS) ** (1.0 / dim)
+        side = max(side, float(extent.max()) / 4096.0)  # a flat box: not more buckets along its long side
+        shape = np.maximum(np.ceil(extent / side).astype(np.int64), 1)
+        flat = np.zeros(mesh.n_cells, dtype=np.int64)
+        cent = mesh.cell_centroids
+        for axis in range(dim):
+            flat *= shape[axis]
+            flat += np.clip(((cent[:, axis] - lo[axis]) / side).astype(np.int64), 0, shape[axis] - 1)
+        return _CentroidBuckets(lo, side, tuple(int(n) for n in shape), flat.astype(np.int32))
+
+    return mesh.memo("centroid_buckets", compute)
+
+
+def _maybe_near_cells(mesh, cells: np.ndarray, centres: np.ndarray, reach: float) -> np.ndarray:
+    """:func:`_maybe_near` for the centroids of ``cells``, on the mesh's fixed bucket grid.
+
+    The same two exact tests; the buckets of the centroids are found once per mesh instead of
+    every call (where the fixed grid is coarser than half of ``reach``, the grid of
+    :func:`_maybe_near` about the centres is used instead).
+    """
+    from scipy.ndimage import distance_transform_edt
+
+    grid = _centroid_buckets(mesh)
+    if centres.shape[0] == 0 or cells.size == 0 or not grid.side <= 0.5 * reach:
+        return _maybe_near(mesh.cell_centroids[cells], centres, reach)
+    dim = centres.shape[1]
+    shape = np.array(grid.shape)
+    marked = np.zeros(grid.shape, dtype=bool)
+    marked[tuple(np.clip(((centres - grid.lo) / grid.side).astype(np.int64), 0, shape - 1).T)] = True
+    close = distance_transform_edt(~marked) <= reach / grid.side + np.sqrt(dim) + 1e-9
+    near = np.zeros(cells.size, dtype=bool)
+    kept = np.flatnonzero(close.ravel()[grid.flat[cells]])
+    near[kept] = _any_within(mesh.cell_centroids[cells[kept]], centres, reach)
     return near
 
 

@@ -19,6 +19,8 @@ __all__ = ["corner_sum", "corner_mean", "CornerExtremes", "corner_extremes", "ce
 
 #: rows per chunk of the corner passes (the temporaries stay in cache)
 _CHUNK = 1 << 15
+#: rows per chunk of :func:`corner_mean` (its gathered corners, k values a row, stay in cache)
+_MEAN_CHUNK = 1 << 16
 
 
 def corner_sum(arrays) -> np.ndarray:
@@ -57,9 +59,15 @@ def corner_mean(values: np.ndarray, corners: np.ndarray) -> np.ndarray:
         The value of the bilinear / trilinear interpolant at a quad's or
         hexahedron's centre; the centroid value of a linear field.
     """
-    k = corners.shape[1]
-    total = corner_sum(values[corners[:, j]] for j in range(k))
-    return total / k
+    n, k = corners.shape
+    out = np.empty((n,) + values.shape[1:], dtype=(values[:0] / k).dtype)  # the dtype of a sum / k
+    # per chunk of rows: one gather of the chunk's corners, then the columns added in order (a
+    # strided column gather over the whole table is about 2x slower; the sums are the same)
+    for lo in range(0, n, _MEAN_CHUNK):
+        gathered = np.take(values, corners[lo:lo + _MEAN_CHUNK], axis=0)
+        out[lo:lo + _MEAN_CHUNK] = corner_sum(gathered[:, j] for j in range(k))
+    out /= k
+    return out
 
 
 # --------------------------------------------------------------------------- corner extremes

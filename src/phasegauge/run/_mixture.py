@@ -140,8 +140,11 @@ def mixture_step(step, mesh, ind, contour, metrics: dict, options, droplets=None
     weights = mesh.cell_measures
     finite = np.isfinite(x)
     t = step_temperature(step, mesh, options)
-    out = {"temperature": t,
-           "mean_composition": float(weights[finite] @ x[finite] / weights[finite].sum())}
+    if not finite.all():
+        x_finite, weights = x[finite], weights[finite]
+    else:  # the same sums without copies
+        x_finite = x
+    out = {"temperature": t, "mean_composition": float(weights @ x_finite / weights.sum())}
     eq = thermo.equilibrium_at(model, t) if np.isfinite(t) else None
     out["binodal_lean"] = eq.binodal_lean if eq is not None else math.nan
     out["binodal_rich"] = eq.binodal_rich if eq is not None else math.nan
