@@ -3,7 +3,8 @@
 Every corner sum of the package adds the corners in corner order, ``(a0 + a1) + a2 ...``,
 so a quantity formed in two places (a face centre seen from both of its cells, a cell
 value and its simplices') is the same number bit for bit. The arrays are added one by one
-into a new array: no ``(n, k, ...)`` temporary of all corners at once.
+into a new array: no ``(n, k, ...)`` temporary of all corners at once (the corner passes work
+in chunks of rows whose gathered corners stay in cache).
 """
 
 from __future__ import annotations

@@ -1,0 +1,152 @@
+"""One table for every cell kind: ``measure`` against the baseline pipeline in the same run.
+
+Runs, one configuration at a time in fresh child processes (the jobs of ``bench_measure.py`` and
+``bench_polyhedra.py``, unchanged), the series of both scripts at each size:
+
+* ``tetra``, ``grid``, ``hexahedron``: ``bench_measure.py``'s XDMF series (a grid split into
+  tetrahedra, the regular grid of hexahedra, the jittered hexahedra), configurations ``raw``,
+  ``baseline`` and ``serial``;
+* ``polyhedron``: ``bench_polyhedra.py``'s folder of VTK polyhedra (the jittered hexahedra
+  written as polyhedra), configurations ``baseline`` (pyvista on the polyhedra) and
+  ``polyhedra`` (``measure``).
+
+and prints one markdown table: wall and CPU seconds of the baseline and of ``measure``, their
+ratio, the first step, the later steps' median, microseconds per cell-step, peak memory over one
+step's mesh and fields, and beside them the previous round's ratio, per cell-step time and peak
+from ``previous_round.json`` (figures copied from ``RESULTS.md``, each with its section).
+
+Usage::
+
+    PYTHONPATH=src python benchmarks/bench_kinds.py [--sizes 0.25,1,4] [--steps 5]
+        [--kinds tetra,grid,hexahedron,polyhedron] [--skip polyhedron:4] [--json OUT]
+
+``--skip KIND:SIZE`` leaves a series out (say why in RESULTS.md: the polyhedra at 4M cells need
+about 63x a step's bytes, more memory than this machine has).
+"""
+
+from __future__ import annotations
+
+import argparse
+import json
+import os
+import sys
+import tempfile
+import time
+
+import numpy as np
+
+sys.path.insert(0, os.path.dirname(os.path.abspath(__file__)))
+import bench_measure  # noqa: E402  (the jobs and series of the per-kind benchmarks, unchanged)
+import bench_polyhedra  # noqa: E402
+
+HERE = os.path.dirname(os.path.abspath(__file__))
+KINDS = ("tetra", "grid", "hexahedron", "polyhedron")
+COLUMNS = ("kind", "cells", "baseline s (cpu)", "measure s (cpu)", "measure / baseline wall (cpu)",
+           "first step s", "later steps s", "us per cell-step", "peak / step bytes",
+           "previous: measure / baseline", "previous: us per cell-step", "previous: peak / step bytes")
+
+
+def _warm(folder: str) -> None:
+    for name in sorted(os.listdir(folder)):
+        with open(os.path.join(folder, name), "rb") as handle:
+            while handle.read(1 << 24):
+                pass
+
+
+def run_measure_kind(folder: str, kind: str, millions: float, steps: int) -> dict:
+    """``bench_measure.py``'s baseline and serial jobs on one series; the figures of one row."""
+    info = bench_measure.build(folder, kind, millions, steps)
+    bench_measure._warm_file_cache(info["path"])
+    base = bench_measure.run_child("baseline", info)
+    ser = bench_measure.run_child("serial", info)
+    peak = max(ser["peak_first_half"], ser["peak_second_half"])
+    return _row(kind, info["cells"], base, ser, peak / info["step_bytes"])
+
+
+def run_polyhedra(folder: str, millions: float, steps: int) -> dict:
+    """``bench_polyhedra.py``'s baseline and measure jobs on the polyhedra; the figures of one row."""
+    info = bench_polyhedra.build(folder, millions, steps)
+    _warm(info["polyhedra"])
+    base = bench_polyhedra.run_child("baseline", info["polyhedra"])
+    ser = bench_polyhedra.run_child("polyhedra", info["polyhedra"])
+    return _row("polyhedron", info["cells"], base, ser, ser["peak"] / info["step_bytes"])
+
+
+def _row(kind, cells, base, ser, peak_x) -> dict:
+    later = float(np.median(ser["per_step"][1:] or ser["per_step"]))
+    return {"kind": kind, "cells": int(cells),
+            "baseline_s": base["seconds"], "baseline_cpu": base.get("cpu_seconds", float("nan")),
+            "measure_s": ser["seconds"], "measure_cpu": ser.get("cpu_seconds", float("nan")),
+            "first_step_s": ser["per_step"][0], "later_step_s": later,
+            "us_per_cell_step": 1e6 * later / cells, "peak_x_step": peak_x}
+
+
+def _size_key(cells: int) -> str:
+    return "0.25" if cells < 6e5 else "1" if cells < 2.5e6 else "4"
+
+
+def table(rows, previous) -> str:
+    """The markdown table of ``rows`` with the previous round's figures beside them."""
+    lines = ["| " + " | ".join(COLUMNS) + " |", "|" + "---|" * len(COLUMNS)]
+    for r in rows:
+        before = previous.get(r["kind"], {}).get(_size_key(r["cells"]), {})
+        cells = [r["kind"], f"{r['cells']:,}".replace(",", " "),
+                 f"{r['baseline_s']:.2f} ({r['baseline_cpu']:.2f})", f"{r['measure_s']:.2f} ({r['measure_cpu']:.2f})",
+                 f"{r['measure_s'] / r['baseline_s']:.2f} ({r['measure_cpu'] / r['baseline_cpu']:.2f})",
+                 f"{r['first_step_s']:.2f}", f"{r['later_step_s']:.3f}", f"{r['us_per_cell_step']:.2f}",
+                 f"{r['peak_x_step']:.1f}"]
+        cells += [str(before.get(key, "-")) for key in ("measure_over_baseline", "us_per_cell_step", "peak_x_step")]
+        lines.append("| " + " | ".join(cells) + " |")
+    return "\n".join(lines)
+
+
+def main(argv=None) -> None:
+    parser = argparse.ArgumentParser(description=__doc__.splitlines()[0])
+    parser.add_argument("--sizes", default="0.25,1,4", help="millions of cells, comma separated")
+    parser.add_argument("--steps", type=int, default=5)
+    parser.add_argument("--kinds", default=",".join(KINDS), help=f"from {', '.join(KINDS)}")
+    parser.add_argument("--skip", default="", help="KIND:SIZE pairs to leave out, comma separated")
+    parser.add_argument("--json", default=None, help="also write the rows to this JSON file")
+    parser.add_argument("--keep", default=None, help="build the series in this folder and keep them")
+    args = parser.parse_args(argv)
+    kinds = [k for k in args.kinds.split(",") if k]
+    for k in kinds:
+        if k not in KINDS:
+            parser.error(f"unknown kind {k!r}; choose from {', '.join(KINDS)}")
+    skip = {tuple(p.split(":")) for p in args.skip.split(",") if p}
+    with open(os.path.join(HERE, "previous_round.json")) as handle:
+        previous = json.load(handle)["figures"]
+    folder = args.keep or tempfile.mkdtemp(prefix="pg-bench-kinds-")
+    os.makedirs(folder, exist_ok=True)
+    rows = []
+    for millions in (s for s in args.sizes.split(",") if s):
+        for kind in kinds:
+            if (kind, millions) in skip:
+                print(f"{kind} at {millions}M cells: left out (--skip)", flush=True)
+                continue
+            start = time.perf_counter()
+            sub = os.path.join(folder, f"{kind}-{millions}")
+            os.makedirs(sub, exist_ok=True)
+            row = (run_polyhedra(sub, float(millions), args.steps) if kind == "polyhedron"
+                   else run_measure_kind(sub, kind, float(millions), args.steps))
+            rows.append(row)
+            print(f"{kind} {row['cells']} cells: measure / baseline {row['measure_s'] / row['baseline_s']:.2f} "
+                  f"(cpu {row['measure_cpu'] / row['baseline_cpu']:.2f}), {row['us_per_cell_step']:.2f} us per "
+                  f"cell-step, peak {row['peak_x_step']:.1f}x step ({time.perf_counter() - start:.0f} s)", flush=True)
+            if not args.keep:
+                import shutil
+
+                shutil.rmtree(sub, ignore_errors=True)
+    print()
+    print(table(rows, previous))
+    if args.json:
+        with open(args.json, "w") as handle:
+            json.dump(rows, handle, indent=1)
+    if not args.keep:
+        import shutil
+
+        shutil.rmtree(folder, ignore_errors=True)
+
+
+if __name__ == "__main__":
+    main()
