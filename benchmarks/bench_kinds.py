@@ -81,15 +81,11 @@ def _row(kind, cells, base, ser, peak_x) -> dict:
             "us_per_cell_step": 1e6 * later / cells, "peak_x_step": peak_x}
 
 
-def _size_key(cells: int) -> str:
-    return "0.25" if cells < 6e5 else "1" if cells < 2.5e6 else "4"
-
-
 def table(rows, previous) -> str:
     """The markdown table of ``rows`` with the previous round's figures beside them."""
     lines = ["| " + " | ".join(COLUMNS) + " |", "|" + "---|" * len(COLUMNS)]
     for r in rows:
-        before = previous.get(r["kind"], {}).get(_size_key(r["cells"]), {})
+        before = previous.get(r["kind"], {}).get(r["size"], {})
         cells = [r["kind"], f"{r['cells']:,}".replace(",", " "),
                  f"{r['baseline_s']:.2f} ({r['baseline_cpu']:.2f})", f"{r['measure_s']:.2f} ({r['measure_cpu']:.2f})",
                  f"{r['measure_s'] / r['baseline_s']:.2f} ({r['measure_cpu'] / r['baseline_cpu']:.2f})",
@@ -129,6 +125,7 @@ def main(argv=None) -> None:
             os.makedirs(sub, exist_ok=True)
             row = (run_polyhedra(sub, float(millions), args.steps) if kind == "polyhedron"
                    else run_measure_kind(sub, kind, float(millions), args.steps))
+            row["size"] = millions  # the previous round's figures are keyed by the size asked
             rows.append(row)
             print(f"{kind} {row['cells']} cells: measure / baseline {row['measure_s'] / row['baseline_s']:.2f} "
                   f"(cpu {row['measure_cpu'] / row['baseline_cpu']:.2f}), {row['us_per_cell_step']:.2f} us per "
