@@ -59,12 +59,16 @@ class ConvexCells:
     centre_corners : list of ndarray of shape (j, k)
         The corners of the split cells, in the order their centres are numbered after the
         input points (a centre's point values are its corners' mean).
+    split : list of bool
+        For each new block, whether its cells are pieces of split cells (``source`` then says
+        which cell each piece belongs to: ``Mesh(pieces=...)``).
     """
 
     blocks: list = field(default_factory=list)
     source: list = field(default_factory=list)
     counts: dict = field(default_factory=dict)
     centre_corners: list = field(default_factory=list)
+    split: list = field(default_factory=list)
 
     @property
     def n_centres(self) -> int:
@@ -75,6 +79,7 @@ class ConvexCells:
             return
         self.blocks.append((cell_type, np.ascontiguousarray(cells, dtype=np.int64)))
         self.source.append(np.asarray(rows, dtype=np.int64))
+        self.split.append(count == "split")
         key = count or cell_type
         self.counts[key] = self.counts.get(key, 0) + (len(np.unique(rows)) if count else len(rows))
 

@@ -1,0 +1,74 @@
+"""Convex point set cells split about their centre are pieces of one cell: sizes and counts are the cell's.
+
+Outside checks: VTK's own volumes of the same cells written as wedges (pyvista `compute_cell_sizes`) [lib];
+the same mesh written as ordinary wedge cells, read by meshio, as the second way to the same counts.
+"""
+
+import numpy as np
+import pytest
+
+pv = pytest.importorskip("pyvista")
+
+from phasegauge.analysis.interface import interface_metrics  # noqa: E402
+from phasegauge.analysis.thermo import bulk_compositions  # noqa: E402
+from phasegauge.io import Series  # noqa: E402
+from phasegauge.io.describe import describe_series  # noqa: E402
+from phasegauge.meshgen import grid_mesh, to_meshio  # noqa: E402
+
+CONVEX_POINT_SET = 41
+N = 10
+
+
+def _drop(points):
+    return 0.5 * (1 - np.tanh((np.linalg.norm(points - 0.5, axis=1) - 0.3) / 0.06))
+
+
+def _pair(tmp_path):
+    """The same wedge mesh as wedge cells and as convex point sets (corners shuffled, split about their centre)."""
+    mesh = grid_mesh((N, N, N), kind="wedge")
+    c = _drop(mesh.cell_centroids)
+    wedges = str(tmp_path / "wedges" / "w_0.vtu")
+    (tmp_path / "wedges").mkdir()
+    to_meshio(mesh, cell_data={"c": c}).write(wedges)
+    rng = np.random.default_rng(5)
+    cells = [rng.permutation(row) for row in mesh.blocks[0].connectivity]
+    flat = np.concatenate([[len(row), *row] for row in cells]).astype(np.int64)
+    grid = pv.UnstructuredGrid(flat, np.full(len(cells), CONVEX_POINT_SET, np.uint8), mesh.points)
+    grid.cell_data["c"] = c
+    (tmp_path / "convex").mkdir()
+    convex = str(tmp_path / "convex" / "p_0.vtu")
+    grid.save(convex)
+    return wedges, convex, mesh
+
+
+def test_pieces_of_a_split_cell_take_the_whole_cells_size_and_count_once(tmp_path):
+    wedges, convex, mesh = _pair(tmp_path)
+    whole = Series(wedges).read(0).mesh
+    split = Series(convex).read(0).mesh
+    assert split.cell_type_counts == {"tetra": split.n_cells} and split.n_cells > whole.n_cells  # split, as before
+    # regression: the pieces were not marked, so each tetrahedron counted as a cell of its own size
+    assert split.cell_parents is not None
+    assert split.n_whole_cells == whole.n_cells == whole.n_whole_cells == len(mesh.blocks[0])
+    vtk_sizes = pv.read(wedges).compute_cell_sizes()["Volume"] ** (1 / 3)  # VTK's wedge volumes [lib]
+    np.testing.assert_allclose(whole.cell_sizes, vtk_sizes, rtol=1e-12)
+    np.testing.assert_allclose(split.cell_sizes, whole.cell_sizes[split.cell_parents], rtol=1e-12)
+    assert describe_series(convex)["cells"] == describe_series(wedges)["cells"] == whole.n_cells
+    # the bulk cells of each phase are counted as cells, not pieces
+    c_whole = _drop(whole.cell_centroids)
+    c_split = c_whole[split.cell_parents]  # each piece holds its cell's value, as the reader gives it
+    counts = [bulk_compositions(m, c, c - 0.5, width=0.01, multiple=1.0) for m, c in
+              ((whole, c_whole), (split, c_split))]
+    assert counts[0]["bulk_cells_rich"] == counts[1]["bulk_cells_rich"] > 0
+    assert counts[0]["bulk_cells_lean"] == counts[1]["bulk_cells_lean"] > 0
+
+
+def test_interface_resolution_of_split_cells_is_that_of_the_cells(tmp_path):
+    wedges, convex, _ = _pair(tmp_path)
+    wedge_size = float(np.median(pv.read(wedges).compute_cell_sizes()["Volume"])) ** (1 / 3)  # VTK [lib]
+    for path in (wedges, convex):
+        mesh = Series(path).read(0).mesh
+        figures = interface_metrics(mesh, _drop(mesh.points))  # the drop on the points, exact
+        # the cell size along the interface (width over width in cells) is the wedges' own on both
+        # meshes; the pieces' size was about 1 / 12 ** (1 / 3) of it
+        h_interface = figures["interface_width"] / figures["interface_width_cells"]
+        assert h_interface == pytest.approx(wedge_size, rel=1e-9), path
