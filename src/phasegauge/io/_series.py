@@ -137,6 +137,20 @@ def folder_listing(folder: str, files: list):
     return None
 
 
+def _warn_unlisted(files: list, listing: str, rows: list) -> None:
+    """Warn (:class:`SeriesWarning`, one line) of the folder's mesh files its listing does not name."""
+    named = {os.path.abspath(f) for _, f in rows}
+    left = [os.path.basename(f) for f in files if os.path.abspath(f) not in named]
+    if left:
+        n = len(left)
+        shown = ", ".join(left[:3]) + (f" and {n - 3} more" if n > 3 else "")
+        warnings.warn(SeriesWarning(
+            f"{n} mesh file{'s' if n > 1 else ''} in the folder {'are' if n > 1 else 'is'} not in the step listing "
+            f"{os.path.basename(listing)} ({shown}) and {'are' if n > 1 else 'is'} not measured: add "
+            f"{'them' if n > 1 else 'it'} to the listing, move {'them' if n > 1 else 'it'} out of the folder, or "
+            "give the listing itself as the path", where=os.path.dirname(listing)), stacklevel=4)
+
+
 def read_listing(path: str) -> list[tuple[float, str]]:
     """Read a step listing.
 
@@ -273,6 +287,7 @@ class Series:
             listing = folder_listing(path, files)
             if listing is not None:  # a 'time,path' listing beside the files gives order and times
                 self.listing_file = listing[0]
+                _warn_unlisted(files, *listing)
                 return [StepInfo(i, t, "listing", f) for i, (t, f) in enumerate(listing[1])]
             steps = self._from_files(files)
             warn_series_gaps(files, path, steps)
