@@ -38,7 +38,7 @@ from ._formats import (TIME_NEEDS_FULL_READ, check_readable, format_for, peek_ti
                        suffix_list, surface_file_problem)
 from ._mesh_pool import MeshPool
 from ._meshio_adapter import StepFields, XdmfTimeSeries, mesh_and_fields
-from ._claims import check_hdf5_claims
+from ._claims import CheckedFiles, check_hdf5_claims
 from ._series_gaps import warn_series_gaps
 from ._xdmf import grid_time, temporal_grids, xdmf_data_files
 
@@ -261,6 +261,7 @@ class Series:
         self.mesh_pool = MeshPool() if mesh_pool is None else mesh_pool
         self.sort_by_time = bool(sort_by_time)
         self._xdmf_readers: dict = {}
+        self.checked_files = CheckedFiles()  # HDF5 files whose claims passed: checked once per series
         self.listing_file = None  # a folder's own 'time,path' listing, when it has one
         self.steps = self._discover()
         if self.sort_by_time:
@@ -349,7 +350,7 @@ class Series:
                 raise err.at(where) from None
             if t is TIME_NEEDS_FULL_READ:
                 try:
-                    raw = read_mesh_file(f)
+                    raw = read_mesh_file(f, checked=self.checked_files)
                 except PhasegaugeError:  # an unreadable step: its time is unknown; reading it fails later
                     steps.append(StepInfo(i, float("nan"), "unknown", f, name=names[i]))
                     continue
@@ -429,7 +430,7 @@ class Series:
                                         fix="restore the file" + (", or remove its line from the listing"
                                                                   if named else ""))
             try:
-                raw = read_mesh_file(info.path)
+                raw = read_mesh_file(info.path, checked=self.checked_files)
                 mesh, fields = mesh_and_fields(raw, info.where, self.mesh_pool)
             except PhasegaugeError as err:
                 raise err.at(info.where) from None
@@ -448,7 +449,7 @@ class Series:
     def _read_collection_step(self, info: StepInfo):
         reader = self._xdmf_readers.get(info.path)
         if reader is None:
-            check_hdf5_claims(info.path, xdmf_data_files(info.path))
+            check_hdf5_claims(info.path, xdmf_data_files(info.path), checked=self.checked_files)
             reader = self._xdmf_readers[info.path] = XdmfTimeSeries(info.path)
         return reader.step(info.grid, info.where, self.mesh_pool)
 
