@@ -72,3 +72,19 @@ def test_interface_resolution_of_split_cells_is_that_of_the_cells(tmp_path):
         # meshes; the pieces' size was about 1 / 12 ** (1 / 3) of it
         h_interface = figures["interface_width"] / figures["interface_width_cells"]
         assert h_interface == pytest.approx(wedge_size, rel=1e-9), path
+
+
+def test_neighbouring_split_cells_share_their_face_centres_and_the_mesh_is_measured(tmp_path):
+    # regression: each cell's hull cut its quad faces along its own diagonal, so two split neighbours
+    # cut a shared face differently; the faces did not match and measure refused the mesh as overlapping
+    from phasegauge import measure
+
+    wedges, convex, mesh = _pair(tmp_path)
+    split = Series(convex).read(0).mesh
+    np.testing.assert_allclose(split.total_measure, 1.0, rtol=1e-12)  # the unit cube (elementary geometry)
+    corners = split.boundary_faces[0]
+    middle = np.array([split.points[row[row >= 0]].mean(axis=0) for row in corners])
+    on_surface = np.any(np.isclose(middle, 0.0, atol=1e-12) | np.isclose(middle, 1.0, atol=1e-12), axis=1)
+    assert on_surface.all(), f"{np.count_nonzero(~on_surface)} faces inside the cube are unmatched"
+    tables = [measure(path, field="c").steps.iloc[0] for path in (wedges, convex)]
+    assert tables[1]["phase_volume"] == pytest.approx(tables[0]["phase_volume"], rel=1e-12)  # the same cell data
