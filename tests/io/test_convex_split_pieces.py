@@ -88,3 +88,16 @@ def test_neighbouring_split_cells_share_their_face_centres_and_the_mesh_is_measu
     assert on_surface.all(), f"{np.count_nonzero(~on_surface)} faces inside the cube are unmatched"
     tables = [measure(path, field="c").steps.iloc[0] for path in (wedges, convex)]
     assert tables[1]["phase_volume"] == pytest.approx(tables[0]["phase_volume"], rel=1e-12)  # the same cell data
+
+
+def test_pieces_stay_marked_in_a_multiblock_file(tmp_path):
+    # regression: joining the volume blocks of a .vtm file dropped the marks of split cells
+    wedges, convex, mesh = _pair(tmp_path)
+    block = pv.read(convex)
+    other = pv.read(wedges).translate((2.0, 0.0, 0.0))  # ordinary wedges beside it
+    path = str(tmp_path / "step_0.vtm")
+    pv.MultiBlock({"internal": block, "more": other}).save(path)
+    joined = Series(path).read(0).mesh
+    assert joined.cell_parents is not None
+    assert joined.n_whole_cells == 2 * len(mesh.blocks[0])
+    np.testing.assert_allclose(joined.cell_sizes, (0.5 / N ** 3) ** (1 / 3), rtol=1e-9)  # every wedge the same
