@@ -1,7 +1,8 @@
 """Convex point set cells split about their centre are pieces of one cell: sizes and counts are the cell's.
 
 Outside checks: VTK's own volumes of the same cells written as wedges (pyvista `compute_cell_sizes`) [lib];
-the same mesh written as ordinary wedge cells, read by meshio, as the second way to the same counts.
+the same mesh written as ordinary wedge cells, read by meshio, as the second way to the same counts;
+the unit cube's volume and the 1/8 x 1/6 rectangles of a 2D grid (elementary geometry).
 """
 
 import numpy as np
@@ -101,3 +102,28 @@ def test_pieces_stay_marked_in_a_multiblock_file(tmp_path):
     assert joined.cell_parents is not None
     assert joined.n_whole_cells == 2 * len(mesh.blocks[0])
     np.testing.assert_allclose(joined.cell_sizes, (0.5 / N ** 3) ** (1 / 3), rtol=1e-9)  # every wedge the same
+
+
+@pytest.mark.parametrize("kind", ["polygon", "convex"])
+def test_polygon_mesh_counts_and_sizes_equal_the_same_mesh_as_quads(tmp_path, kind):
+    quads = grid_mesh((8, 6))
+    c = _drop(np.c_[quads.cell_centroids, np.full(quads.n_cells, 0.5)])
+    (tmp_path / "q").mkdir()
+    (tmp_path / "p").mkdir()
+    to_meshio(quads, cell_data={"c": c}).write(str(tmp_path / "q" / "q_0.vtu"))
+    if kind == "polygon":
+        to_meshio(grid_mesh((8, 6), kind="polygon"), cell_data={"c": c}).write(str(tmp_path / "p" / "p_0.vtu"))
+    else:  # convex point sets with shuffled corners
+        rng = np.random.default_rng(7)
+        rows = [rng.permutation(row) for row in quads.blocks[0].connectivity]
+        flat = np.concatenate([[4, *row] for row in rows]).astype(np.int64)
+        grid = pv.UnstructuredGrid(flat, np.full(len(rows), CONVEX_POINT_SET, np.uint8), quads.points)
+        grid.cell_data["c"] = c
+        grid.save(str(tmp_path / "p" / "p_0.vtu"))
+    a, b = (Series(str(tmp_path / f / f"{f}_0.vtu")).read(0).mesh for f in ("q", "p"))
+    assert a.n_whole_cells == b.n_whole_cells == 48
+    np.testing.assert_allclose(b.cell_sizes, a.cell_sizes, rtol=1e-12)
+    np.testing.assert_allclose(a.cell_sizes, np.sqrt(1 / 48), rtol=1e-12)  # 1/8 x 1/6 rectangles
+    descs = [describe_series(str(tmp_path / f / f"{f}_0.vtu")) for f in ("q", "p")]
+    assert descs[0]["cells"] == descs[1]["cells"] == 48
+    assert descs[0]["cell_size"] == pytest.approx(descs[1]["cell_size"], rel=1e-12)
