@@ -1,6 +1,6 @@
 """Gaps in a series: steps that may be missing, from the stored times or else the file numbers.
 
-:func:`Series` warns through :func:`warn_series_gaps` after discovery. With stored times, a gap is
+:class:`~phasegauge.io.Series` warns through :func:`warn_series_gaps` after discovery. With stored times, a gap is
 a step of a whole multiple (two or more) of the most common output interval; without them, a jump
 of a whole multiple of the smallest difference between file numbers.
 """
