@@ -80,3 +80,22 @@ def test_bad_model_file_gives_one_line_naming_the_key(tmp_path):
     result = _run("equilibrium", path, "--temperature", 300)
     assert result.exit_code == 2
     assert "alpha must be a number >= 0" in result.output and str(path) in result.output
+
+
+@pytest.mark.parametrize("value", ["{ x = 0.3 }", "1979-05-27", "[0.3]", '"0.3"', "true"])
+def test_nrtl_alpha_that_is_no_number_gives_one_line_naming_the_key(tmp_path, value):
+    # regression: a table or a date as alpha escaped as a TypeError (a failure inside, exit 1)
+    path = tmp_path / "bad.toml"
+    path.write_text(f'[model]\nkind = "nrtl"\ntau_a = [1, 1]\nalpha = {value}\n')
+    result = _run("equilibrium", path, "--temperature", 300)
+    assert result.exit_code == 2, result.output
+    assert "[model] alpha must be a number" in result.output and str(path) in result.output
+    assert "alpha = 0.3" in result.output and result.output.count("\n") == 1
+
+
+def test_nrtl_alpha_that_is_no_number_is_an_option_error_in_the_api():
+    from phasegauge.errors import OptionError
+    from phasegauge.model.mixture_models import NrtlModel
+
+    with pytest.raises(OptionError, match="alpha must be a number, found 'abc'"):  # was a bare ValueError
+        NrtlModel(tau_a=(1.0, 1.0), alpha="abc")

@@ -49,3 +49,40 @@ def test_layered_field_is_not_taken_for_periodic():
     y = mesh.points[:, 1]
     layered = 0.5 * (1 + np.tanh((0.4 - y) / 0.03))
     assert looks_periodic(mesh, layered) == []
+
+
+def _moved(mesh, points):
+    from phasegauge.model.mesh import Mesh
+
+    return Mesh(points, [(b.cell_type, b.connectivity) for b in mesh.blocks])
+
+
+def _periodic_in_plane(u, v):
+    return 0.5 + 0.4 * np.cos(2 * np.pi * u) * np.cos(2 * np.pi * v)
+
+
+def test_mesh_in_the_xz_plane_is_checked_along_x_and_z():
+    # regression: the axes checked were range(dimension) (x, y), so the z axis of an x-z mesh was never looked at
+    flat = grid_mesh((32, 24))
+    points = np.zeros_like(flat.points)
+    points[:, 0], points[:, 2] = flat.points[:, 0], flat.points[:, 1]
+    mesh = _moved(flat, points)
+    assert mesh.plane_axes == (0, 2)
+    assert looks_periodic(mesh, _periodic_in_plane(points[:, 0], points[:, 2])) == ["x", "z"]
+
+
+def test_boundary_coordinates_off_by_round_off_are_still_checked():
+    # regression: the next plane inside was found by exact equality of coordinates, so boundary points
+    # scattered by 1e-12 were taken for the plane inside and the axis was passed over
+    flat = grid_mesh((32, 24))
+    rng = np.random.default_rng(3)
+    points = flat.points + rng.uniform(-1e-12, 1e-12, flat.points.shape) * np.array([1, 1, 0])
+    mesh = _moved(flat, points)
+    assert looks_periodic(mesh, _periodic_in_plane(flat.points[:, 0], flat.points[:, 1])) == ["x", "y"]
+
+
+def test_mesh_one_cell_thick_is_not_periodic_across_its_thickness():
+    # a 3D mesh one cell thick measured as 3D: its two faces hold the same values by construction
+    mesh = grid_mesh((32, 24, 1), bounds=[(0, 1), (0, 1), (0, 0.05)])
+    x, y = mesh.points[:, 0], mesh.points[:, 1]
+    assert looks_periodic(mesh, 0.5 + 0.4 * np.cos(2 * np.pi * x) * y) == ["x"]

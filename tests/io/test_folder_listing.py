@@ -41,3 +41,22 @@ def test_folder_without_listing_or_with_other_csv_is_unchanged(tmp_path):
     series = Series(folder)
     assert series.listing_file is None
     assert [s.path.rsplit("_", 1)[1] for s in series.steps] == ["0.vtu", "1.vtu", "2.vtu"]
+
+
+def test_folder_listing_naming_some_files_warns_of_the_others(tmp_path):
+    # regression: the files the listing leaves out were dropped without a word
+    import warnings
+
+    folder = _folder(tmp_path, "time,path\n0.5,out_0.vtu\n1.0,out_2.vtu\n")
+    with warnings.catch_warnings(record=True) as caught:
+        warnings.simplefilter("always")
+        series = Series(folder)
+    assert [s.time for s in series.steps] == [0.5, 1.0]
+    texts = [str(w.message) for w in caught if "listing" in str(w.message)]
+    assert len(texts) == 1 and "\n" not in texts[0], texts
+    assert "1 mesh file in the folder is not in the step listing times.csv (out_1.vtu)" in texts[0], texts[0]
+    assert "add it to the listing" in texts[0]
+    with warnings.catch_warnings():
+        warnings.simplefilter("error")  # a listing naming every file warns of nothing
+        (tmp_path / "all").mkdir()
+        Series(_folder(tmp_path / "all", "time,path\n0,out_0.vtu\n1,out_1.vtu\n2,out_2.vtu\n"))

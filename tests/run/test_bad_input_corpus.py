@@ -515,7 +515,7 @@ def test_a_gap_in_the_times_themselves_warns(tmp_path):
 
 
 def test_time_gaps_rule():
-    from phasegauge.io._series import time_gaps
+    from phasegauge.io._series_gaps import time_gaps
 
     assert time_gaps([0, 0.1, 0.2, 0.3])[0] == []
     assert time_gaps([0, 0.1, 0.2, 0.4, 0.5])[0] == [(0.2, 0.4)]

@@ -54,3 +54,37 @@ def test_expected_shift_from_the_free_energy(tmp_path):
     expected = sigma / (2 * radius) / (2 * beta) / 2
     assert note.figures["expected_shift"] == pytest.approx(expected, rel=1e-9)
     assert "Gibbs-Thomson shift for the largest drop" in note.text
+
+
+def _tables(radius, dimension):
+    """A step table with bulk plateaus off the wells and one drop of ``radius``; its shape figure unknown
+    (NaN: a drop across a periodic boundary has none), so only the mesh can say the dimension."""
+    import pandas as pd
+
+    steps = pd.DataFrame({"step": [0], "time": [0.0], "bulk_c_low": [0.01], "bulk_c_high": [1.009],
+                          "c_min": [0.009], "c_max": [1.0095], "overshoot_volume": [1e-4], "domain_volume": [1.0]})
+    volume = np.pi * radius ** 2 if dimension == 2 else 4 / 3 * np.pi * radius ** 3
+    droplets = pd.DataFrame({"step": [0], "time": [0.0], "volume": [volume], "equivalent_diameter": [2 * radius],
+                             "circularity": [np.nan], "sphericity": [np.nan]})
+    return steps, droplets
+
+
+@pytest.mark.parametrize("dimension", [2, 3])
+def test_expected_shift_takes_the_meshs_dimension(tmp_path, dimension):
+    """Gibbs-Thomson (Cahn & Hilliard 1958, linearised): a 2D disc has one curvature, mu = sigma / R over the
+    gap of 2; a 3D sphere two, mu = 2 sigma / R. Regression: the dimension was guessed from the circularity
+    column, so a 2D drop without a circularity figure got the 3D shift."""
+    from phasegauge.run.assemble import findings
+    from phasegauge.run.options import MeasureOptions
+
+    beta, kappa, radius = 1.0, 2e-4, 0.2
+    model = tmp_path / "well.toml"
+    model.write_text(f'[model]\nkind = "double-well"\nlean = -1.0\nrich = 1.0\nheight = {beta / 4}\n'
+                     f"kappa = {kappa}\n")
+    options = MeasureOptions(field="phi", range=(-1, 1), free_energy=str(model))
+    steps, droplets = _tables(radius, dimension)
+    note = next(f for f in findings(steps, droplets, {}, options, [], dimension=dimension)
+                if f.kind == "bulk_plateaus")
+    sigma = 2 * np.sqrt(2) / 3 * np.sqrt(kappa * beta)
+    mu = (sigma / radius if dimension == 2 else 2 * sigma / radius) / 2  # over the gap rich - lean = 2
+    assert note.figures["expected_shift"] == pytest.approx(mu / (2 * beta) / 2, rel=1e-12)

@@ -201,3 +201,13 @@ def test_miscibility_recipe_table_is_checked_before_any_work(tmp_path):
         load_recipe(recipe)
     recipe.write_text(base + '[miscibility]\nmodel = "regular.toml"\ntemperature = 300.0\n')
     assert load_recipe(recipe)["miscibility"]["model"] == str(tmp_path / "regular.toml")
+
+
+@pytest.mark.parametrize("value, message", [("hot", "temperature must be a number, found 'hot'"),
+                                            (float("inf"), "temperature must be finite, found inf"),
+                                            (0.0, "temperature must be a number > 0, found 0.0")])
+def test_mixture_numbers_take_the_shared_finite_number_check(value, message):
+    # the one check of model/_numbers.finite_number (its wording for text and infinities), then > 0
+    with pytest.raises(OptionError, match=message) as info:
+        MeasureOptions(field="x", model=RegularSolutionModel(A_a=3.0), temperature=value)
+    assert info.value.fix == "give it in K, for example 298.15"

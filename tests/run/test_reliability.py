@@ -458,7 +458,7 @@ def test_numbered_folder_with_a_gap_warns(tmp_path):
 
 
 def test_numbering_gaps_rule():
-    from phasegauge.io._series import numbering_gaps
+    from phasegauge.io._series_gaps import numbering_gaps
 
     names = lambda nums: [f"run_{n}.vtu" for n in nums]  # noqa: E731
     assert numbering_gaps(names([0, 1, 2, 3])) == []

@@ -80,7 +80,7 @@ def _check_samples(max_samples) -> int:
 class _Work:
     """Pieces shared by the metrics and the profile table."""
 
-    def __init__(self, mesh: Mesh, indicator, level: float, contour, extremes):
+    def __init__(self, mesh: Mesh, indicator, level: float, contour, extremes, plateaus=None):
         self.level = _check_level(level)
         self.mesh = mesh
         _, self.c_point = _indicator_values(mesh, indicator, need_cells=False)
@@ -92,7 +92,7 @@ class _Work:
             raise OptionError(f"contour must be a Contour, found {type(contour).__name__}",
                               fix="pass the result of find_interface, or None")
         self.contour = contour
-        low, high, tail = bulk_plateaus(self.c_point, self.level)
+        low, high, tail = bulk_plateaus(self.c_point, self.level) if plateaus is None else _check_plateaus(plateaus)
         self.plateaus = (low, high)
         self.cell_mixed = _cell_mixed(mesh, indicator, low, high, tail)
         if (low, high) == (0.0, 1.0):
@@ -207,6 +207,18 @@ def bulk_plateaus(c_point: np.ndarray, level: float) -> tuple[float, float, floa
     return low, high, tail
 
 
+def _check_plateaus(plateaus) -> tuple[float, float, float]:
+    try:
+        low, high, tail = (float(v) for v in plateaus)
+    except (TypeError, ValueError):
+        raise OptionError(f"plateaus must be (low, high, tail) as bulk_plateaus gives them, found {plateaus!r}",
+                          fix="pass bulk_plateaus(c_point, level) of the same values, or None") from None
+    if not (np.isfinite([low, high, tail]).all() and low < high):
+        raise OptionError(f"plateaus must be finite with low < high, found {plateaus!r}",
+                          fix="pass bulk_plateaus(c_point, level) of the same values, or None")
+    return low, high, tail
+
+
 def _check_extremes(mesh: Mesh, extremes) -> CornerExtremes | None:
     """``extremes`` as CornerExtremes of the mesh's cells, or None."""
     if extremes is None:
@@ -228,7 +240,7 @@ def _nan_metrics() -> dict:
 
 def interface_metrics(mesh: Mesh, indicator, *, level: float = 0.5, contour: Contour | None = None,
                       extremes: CornerExtremes | None = None, max_samples: int = 2000,
-                      return_distances: bool = False):
+                      return_distances: bool = False, plateaus=None):
     """Size and width of the interface, by four independent estimators.
 
     Parameters
@@ -254,6 +266,10 @@ def interface_metrics(mesh: Mesh, indicator, *, level: float = 0.5, contour: Con
         measured at the mesh points (for
         :func:`phasegauge.analysis.thermo.interface_distance`, which then
         searches only where they leave the answer open).
+    plateaus : tuple of 3 floats, optional
+        ``(low, high, tail)`` as :func:`bulk_plateaus` gives them for the same point values
+        and ``level`` (a caller that also labels droplets computes them once); None:
+        computed here.
 
     Returns
     -------
@@ -341,7 +357,7 @@ def interface_metrics(mesh: Mesh, indicator, *, level: float = 0.5, contour: Con
        system. I. Interfacial free energy", J. Chem. Phys. 28:258 (tanh profile).
     """
     max_samples = _check_samples(max_samples)
-    work = _Work(mesh, indicator, level, contour, extremes)
+    work = _Work(mesh, indicator, level, contour, extremes, plateaus)
     metrics, _, distances = _metrics(work, max_samples)
     return (metrics, distances) if return_distances else metrics
 

@@ -32,8 +32,8 @@ def _boundary_point_pairs(mesh: Mesh, axis: int):
     tol = 1e-9 * max(float(np.ptp(mesh.bounds, axis=0).max()), 1e-300)
     low = np.flatnonzero(np.abs(points[:, axis] - lo) <= tol)
     high = np.flatnonzero(np.abs(points[:, axis] - hi) <= tol)
-    if len(low) < 2 or len(low) != len(high):
-        return None
+    if len(low) < 2 or len(low) != len(high) or len(low) + len(high) == len(points):
+        return None  # no pairs, or no point between the planes (a mesh one cell thick along the axis)
     others = [a for a in range(3) if a != axis]
     key_lo = np.round(points[low][:, others] / (1e3 * tol)).astype(np.int64)
     key_hi = np.round(points[high][:, others] / (1e3 * tol)).astype(np.int64)
@@ -41,12 +41,12 @@ def _boundary_point_pairs(mesh: Mesh, axis: int):
     order_hi = np.lexsort(key_hi.T[::-1])
     if not np.array_equal(key_lo[order_lo], key_hi[order_hi]):
         return None
-    # the next plane inside the low boundary, paired the same way (None when the mesh has no
-    # such plane: an unstructured mesh)
+    # the next plane inside the low boundary (the lowest coordinate beyond the boundary's round-off),
+    # paired the same way (None when the mesh has no such plane: an unstructured mesh)
     inner = None
-    coords = np.unique(points[:, axis])
-    if coords.size > 2:
-        nxt = np.flatnonzero(np.abs(points[:, axis] - coords[1]) <= tol)
+    beyond = points[:, axis][points[:, axis] > lo + tol]
+    if beyond.size and beyond.min() < hi - tol:
+        nxt = np.flatnonzero(np.abs(points[:, axis] - beyond.min()) <= tol)
         if len(nxt) == len(low):
             key_in = np.round(points[nxt][:, others] / (1e3 * tol)).astype(np.int64)
             order_in = np.lexsort(key_in.T[::-1])
@@ -75,10 +75,18 @@ def looks_periodic(mesh: Mesh, c_point, *, periodic=()) -> list:
         matrix on both sides proves nothing) and, where the mesh has a next plane of points
         inside, across the boundary too (a field layered along the boundary, or mirrored at a
         wall, matches on both sides without being periodic).
+
+    Notes
+    -----
+    The axes checked are those the cells span (:attr:`Mesh.plane_axes`: x and z of a 2D mesh in
+    the x-z plane). Coordinates within 1e-9 of the mesh's largest extent count as one plane, so
+    boundary points scattered by round-off are still paired. An axis with no point between its
+    two boundary planes (a mesh one cell thick along it) is not checked: its two faces hold the
+    same values by construction.
     """
     c = np.asarray(c_point, dtype=np.float64)
     found = []
-    for axis in range(mesh.dimension):
+    for axis in mesh.plane_axes[:mesh.dimension]:  # the axes the cells span (x and z of an x-z plane)
         name = AXIS_NAMES[axis]
         if name in periodic:
             continue

@@ -182,7 +182,8 @@ def bulk_compositions(mesh, composition, distance, *, width, multiple=4.0):
             sides.append((np.nan, np.nan, 0))
             continue
         q1, median, q3 = weighted_quantile(v, w, (0.25, 0.5, 0.75))
-        sides.append((median, 0.5 * (q3 - q1), int(v.size)))
+        count = v.size if mesh.cell_parents is None else np.unique(mesh.cell_parents[mask]).size  # cells, not pieces
+        sides.append((median, 0.5 * (q3 - q1), int(count)))
     if np.isfinite(sides[0][0]) and np.isfinite(sides[1][0]) and sides[0][0] < sides[1][0]:
         sides.reverse()                  # the phase with the higher median is the rich one
     (rich, rich_spread, n_rich), (lean, lean_spread, n_lean) = sides

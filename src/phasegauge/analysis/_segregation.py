@@ -270,7 +270,7 @@ def regular_sample(mesh: Mesh, c: np.ndarray, resolution: int | None = None):
         low, high = mesh.bounds[:, list(mesh.plane_axes[:dim])]
         extent = high - low
         if resolution is None:
-            size = (mesh.total_measure / mesh.n_cells) ** (1.0 / dim)
+            size = (mesh.total_measure / mesh.n_whole_cells) ** (1.0 / dim)
             resolution = int(min(np.ceil(extent.max() / size), 1024 if dim == 2 else 160))
         h = extent.max() / resolution
         shape = np.maximum(1, np.round(extent / h)).astype(int)

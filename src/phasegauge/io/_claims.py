@@ -17,7 +17,7 @@ from types import MappingProxyType
 
 from ..errors import UnreadableFileError
 
-__all__ = ["available_memory", "check_legacy_claims", "check_xml_claims", "check_hdf5_claims"]
+__all__ = ["available_memory", "check_legacy_claims", "check_xml_claims", "check_hdf5_claims", "CheckedFiles"]
 
 _HEAD_BYTES = 1 << 16
 
@@ -115,35 +115,72 @@ def check_xml_claims(path: str) -> None:
                                  f"({name.decode()}=\"{count}\")", count * per * 8)
 
 
-def check_hdf5_claims(xdmf_path: str, files: list) -> None:
+class CheckedFiles:
+    """The HDF5 files whose claims passed :func:`check_hdf5_claims` in one run (a series keeps one).
+
+    A file is known by its path, size and modification time, so a file rewritten since is checked
+    again; a check that fails is not kept (it fails again on the next step, with the same message).
+    """
+
+    def __init__(self):
+        self._passed: set = set()
+
+    @staticmethod
+    def key(name: str):
+        """``(absolute path, size, modification time in ns)`` of ``name``, or None when it cannot be looked at."""
+        try:
+            stat = os.stat(name)
+        except OSError:
+            return None
+        return os.path.abspath(name), stat.st_size, stat.st_mtime_ns
+
+    def __contains__(self, key) -> bool:
+        return key is not None and key in self._passed
+
+    def add(self, key) -> None:
+        if key is not None:
+            self._passed.add(key)
+
+
+def check_hdf5_claims(xdmf_path: str, files: list, *, checked: CheckedFiles | None = None) -> None:
     """Refuse HDF5 datasets (of the files an XDMF file names) whose shape the file does not store or
     memory does not hold.
 
     A dataset stored without compression takes its whole size in the file; one that claims
     more than it stores is damaged. Any dataset's size is also checked against free memory.
-    Files that do not open are left to the reader (which says what is wrong with them).
+    Files that do not open are left to the reader (which says what is wrong with them). With
+    ``checked``, a file that passed before (steps of one series sharing an HDF5 file) is not
+    opened again, and a file that passes is added to it.
     """
+    for name in files:
+        key = None if checked is None else CheckedFiles.key(name)
+        if key is not None and key in checked:
+            continue
+        if os.path.isfile(name) and _check_hdf5_file(xdmf_path, name) and checked is not None:
+            checked.add(key)
+
+
+def _check_hdf5_file(xdmf_path: str, name: str) -> bool:
+    """The check of one HDF5 file (raises :class:`UnreadableFileError`); False when it does not open."""
     try:
         import h5py
     except ImportError:  # pragma: no cover - h5py is a dependency
-        return
-    for name in files:
-        if not os.path.isfile(name):
-            continue
-        try:
-            handle = h5py.File(name, "r")
-        except Exception:
-            continue
-        with handle:
-            datasets = []
-            handle.visititems(lambda key, obj: datasets.append((key, obj)) if isinstance(obj, h5py.Dataset)
-                              else None)
-            for key, data in datasets:
-                claimed = int(data.size) * data.dtype.itemsize
-                stored = data.id.get_storage_size()
-                what = (f"the HDF5 dataset '{key}' in {os.path.basename(name)} claims {int(data.size):,} values "
-                        f"(shape {tuple(data.shape)})")
-                if data.compression is None and not data.fillvalue and stored < claimed and claimed > 1 << 20:
-                    raise UnreadableFileError(f"{what}, {claimed:,} bytes, but stores only {stored:,}",
-                                              where=xdmf_path, fix=_DAMAGED)
-                _refuse_memory(xdmf_path, what, claimed)
+        return False
+    try:
+        handle = h5py.File(name, "r")
+    except Exception:
+        return False
+    with handle:
+        datasets = []
+        handle.visititems(lambda key, obj: datasets.append((key, obj)) if isinstance(obj, h5py.Dataset)
+                          else None)
+        for key, data in datasets:
+            claimed = int(data.size) * data.dtype.itemsize
+            stored = data.id.get_storage_size()
+            what = (f"the HDF5 dataset '{key}' in {os.path.basename(name)} claims {int(data.size):,} values "
+                    f"(shape {tuple(data.shape)})")
+            if data.compression is None and not data.fillvalue and stored < claimed and claimed > 1 << 20:
+                raise UnreadableFileError(f"{what}, {claimed:,} bytes, but stores only {stored:,}",
+                                          where=xdmf_path, fix=_DAMAGED)
+            _refuse_memory(xdmf_path, what, claimed)
+    return True

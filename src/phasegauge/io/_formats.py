@@ -18,6 +18,7 @@ from types import MappingProxyType
 from typing import Callable
 
 from ..errors import InputFileNotFound, PhasegaugeError, SeriesError, UnreadableFileError, short_text
+from ._claims import CheckedFiles, check_hdf5_claims
 
 __all__ = ["FileFormat", "register_format", "formats", "format_for", "mesh_suffixes", "read_mesh_file",
            "peek_time", "TIME_NEEDS_FULL_READ", "check_readable", "stored_time",
@@ -56,20 +57,25 @@ class FileFormat:
         ``peek_time(path)`` -> the time stored in the file's field data read from its head,
         None when there is none, or :data:`TIME_NEEDS_FULL_READ`; may raise OSError or ValueError
         (taken as no time).
+    hdf5_files : callable or None
+        ``hdf5_files(path)`` -> the HDF5 files a file's numbers live in (an XDMF file's), whose
+        claimed sizes :func:`read_mesh_file` checks before ``read``.
     """
 
     name: str
     suffixes: tuple
     read: Callable
     peek_time: Callable | None = None
+    hdf5_files: Callable | None = None
 
 
-def register_format(name: str, suffixes, *, read: Callable, peek_time: Callable | None = None) -> FileFormat:
+def register_format(name: str, suffixes, *, read: Callable, peek_time: Callable | None = None,
+                    hdf5_files: Callable | None = None) -> FileFormat:
     """Declare a format (for a format module's ``FORMATS`` tuple)."""
     suffixes = tuple(str(s).lower() for s in suffixes)
     if not suffixes or not all(s.startswith(".") and len(s) > 1 for s in suffixes):
         raise ValueError(f"format {name!r}: suffixes must start with a dot, found {suffixes}")
-    return FileFormat(name, suffixes, read, peek_time)
+    return FileFormat(name, suffixes, read, peek_time, hdf5_files)
 
 
 def formats() -> tuple:
@@ -97,8 +103,12 @@ def suffix_list() -> str:
     return ", ".join(mesh_suffixes())
 
 
-def read_mesh_file(path: str):
+def read_mesh_file(path: str, *, checked: CheckedFiles | None = None):
     """Read one mesh file with its format's reader (a meshio-style mesh).
+
+    The HDF5 files the file's numbers live in (an XDMF file's) have their claimed sizes checked
+    first (:func:`._claims.check_hdf5_claims`), once per file for a series that passes its
+    ``checked`` record.
 
     Raises
     ------
@@ -120,6 +130,8 @@ def read_mesh_file(path: str):
         raise UnreadableFileError(f"is not a mesh file ({suffix_list()})", where=path,
                                   fix="convert the file to VTK or XDMF")
     try:
+        if fmt.hdf5_files is not None:
+            check_hdf5_claims(path, fmt.hdf5_files(path), checked=checked)
         return fmt.read(path)
     except PhasegaugeError:
         raise

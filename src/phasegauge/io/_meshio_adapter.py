@@ -112,8 +112,10 @@ def convex_point_sets(raw):
     """Replace the convex point set blocks of a meshio mesh by ordinary cells (in place).
 
     Recognised cells keep their row of cell data; cells split about their centre repeat it on
-    every piece, and their centres are added as points (point data: the corners' mean). How the
-    cells were read is kept as ``raw.convex_point_sets`` (a phrase), else None.
+    every piece, are marked as pieces of their cell (``raw.cell_pieces``, which the mesh keeps as
+    :attr:`Mesh.cell_parents`: cell sizes and counts are the whole cells'), and their centres are
+    added as points (point data: the corners' mean). How the cells were read is kept as
+    ``raw.convex_point_sets`` (a phrase), else None.
     """
     from meshio import CellBlock
 
@@ -123,7 +125,8 @@ def convex_point_sets(raw):
     marked = [isinstance(b.type, _ConvexPointSetName) for b in raw.cells]
     if not any(marked):
         return raw
-    new_blocks, new_data = [], {name: [] for name in raw.cell_data}
+    new_blocks, new_data, pieces = [], {name: [] for name in raw.cell_data}, []
+    earlier = getattr(raw, "cell_pieces", None) or [None] * len(raw.cells)
     out = ConvexCells()
     points = np.asarray(raw.points, dtype=np.float64)
     if points.shape[1] < 3:
@@ -131,13 +134,15 @@ def convex_point_sets(raw):
     for i, block in enumerate(raw.cells):
         if not marked[i]:
             new_blocks.append((str(block.type), block.data))
+            pieces.append(earlier[i])
             for name, arrays in raw.cell_data.items():
                 new_data[name].append(arrays[i])
             continue
         start = len(out.blocks)
         convert_convex_point_sets(points, np.asarray(block.data), out)
-        for cell_type, cells in out.blocks[start:]:
+        for (cell_type, cells), rows, split in zip(out.blocks[start:], out.source[start:], out.split[start:]):
             new_blocks.append((cell_type, cells))
+            pieces.append(rows if split else None)  # the row of its input cell in this block
         for name, arrays in raw.cell_data.items():
             values = np.asarray(arrays[i])
             new_data[name].extend(values[rows] for rows in out.source[start:])
@@ -150,6 +155,8 @@ def convex_point_sets(raw):
                 raw.point_data[name] = np.concatenate([values] + [values[c].mean(axis=1) for c in corners])
     raw.cells = [CellBlock(t, c) for t, c in new_blocks]
     raw.cell_data = new_data
+    if any(p is not None for p in pieces):
+        raw.cell_pieces = pieces
     raw.convex_point_sets = f"convex point set cells (VTK 41) read {out.words()}"
     return raw
 

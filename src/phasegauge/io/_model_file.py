@@ -81,9 +81,9 @@ def mixture_model_from_table(table: dict, *, where: str = ""):
             if "tau_a" not in table and "tau_b" not in table:
                 raise OptionError("an NRTL model needs tau_a and/or tau_b", fix="write tau_a = [a12, a21] and "
                                   "tau_b = [b12, b21] (tau_ij = a_ij + b_ij / T)")
-            for key in ("alpha",):
-                if key in table and isinstance(table[key], bool | str | list):
-                    raise OptionError(f"alpha must be a number, found {table[key]!r}", fix="write alpha = 0.3")
+            value = table.get("alpha", 0.3)
+            if isinstance(value, bool) or not isinstance(value, int | float):  # a string, list, table or date
+                raise OptionError(f"alpha must be a number, found {value!r}", fix="write alpha = 0.3")
             options = {key: table[key] for key in MODEL_KEYS["nrtl"] if key in table}
             return NrtlModel(component=component, **options)
         if kind == "regular":

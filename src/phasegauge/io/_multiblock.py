@@ -110,7 +110,8 @@ def read_multiblock(path: str):
 
     Several volume blocks are joined (points numbered on); a field is kept when
     every block holds it with the same components. The field data (the stored
-    time) is the first block's.
+    time) is the first block's. Cells a block's reader split (convex point sets)
+    stay marked as pieces of their cell (``cell_pieces``).
     """
     from ._formats import read_mesh_file
     from ._meshio_adapter import new_mesh
@@ -128,8 +129,12 @@ def read_multiblock(path: str):
                   for name in pieces[0].point_data if _shared(pieces, "point_data", name)}
     cell_data = {name: [np.asarray(a) for p in pieces for a in p.cell_data[name]]
                  for name in pieces[0].cell_data if _shared(pieces, "cell_data", name)}
-    return new_mesh(np.concatenate(points), cells, point_data=point_data, cell_data=cell_data,
-                    field_data=dict(pieces[0].field_data or {}))
+    joined = new_mesh(np.concatenate(points), cells, point_data=point_data, cell_data=cell_data,
+                      field_data=dict(pieces[0].field_data or {}))
+    if any(getattr(p, "cell_pieces", None) for p in pieces):  # cells a reader split stay marked per block
+        joined.cell_pieces = [mark for p in pieces
+                              for mark in (getattr(p, "cell_pieces", None) or [None] * len(p.cells))]
+    return joined
 
 
 def _shared(pieces, kind: str, name: str) -> bool:

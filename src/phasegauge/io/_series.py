@@ -38,7 +38,8 @@ from ._formats import (TIME_NEEDS_FULL_READ, check_readable, format_for, peek_ti
                        suffix_list, surface_file_problem)
 from ._mesh_pool import MeshPool
 from ._meshio_adapter import StepFields, XdmfTimeSeries, mesh_and_fields
-from ._claims import check_hdf5_claims
+from ._claims import CheckedFiles, check_hdf5_claims
+from ._series_gaps import warn_series_gaps
 from ._xdmf import grid_time, temporal_grids, xdmf_data_files
 
 __all__ = ["Series", "StepInfo", "Step", "open_series", "natural_key", "read_listing",
@@ -134,6 +135,20 @@ def folder_listing(folder: str, files: list):
         if all(os.path.abspath(f) in names for _, f in rows):
             return candidate, rows
     return None
+
+
+def _warn_unlisted(files: list, listing: str, rows: list) -> None:
+    """Warn (:class:`SeriesWarning`, one line) of the folder's mesh files its listing does not name."""
+    named = {os.path.abspath(f) for _, f in rows}
+    left = [os.path.basename(f) for f in files if os.path.abspath(f) not in named]
+    if left:
+        n = len(left)
+        shown = ", ".join(left[:3]) + (f" and {n - 3} more" if n > 3 else "")
+        warnings.warn(SeriesWarning(
+            f"{n} mesh file{'s' if n > 1 else ''} in the folder {'are' if n > 1 else 'is'} not in the step listing "
+            f"{os.path.basename(listing)} ({shown}) and {'are' if n > 1 else 'is'} not measured: add "
+            f"{'them' if n > 1 else 'it'} to the listing, move {'them' if n > 1 else 'it'} out of the folder, or "
+            "give the listing itself as the path", where=os.path.dirname(listing)), stacklevel=4)
 
 
 def read_listing(path: str) -> list[tuple[float, str]]:
@@ -246,6 +261,7 @@ class Series:
         self.mesh_pool = MeshPool() if mesh_pool is None else mesh_pool
         self.sort_by_time = bool(sort_by_time)
         self._xdmf_readers: dict = {}
+        self.checked_files = CheckedFiles()  # HDF5 files whose claims passed: checked once per series
         self.listing_file = None  # a folder's own 'time,path' listing, when it has one
         self.steps = self._discover()
         if self.sort_by_time:
@@ -272,9 +288,10 @@ class Series:
             listing = folder_listing(path, files)
             if listing is not None:  # a 'time,path' listing beside the files gives order and times
                 self.listing_file = listing[0]
+                _warn_unlisted(files, *listing)
                 return [StepInfo(i, t, "listing", f) for i, (t, f) in enumerate(listing[1])]
             steps = self._from_files(files)
-            _warn_numbering_gaps(files, path, steps)
+            warn_series_gaps(files, path, steps)
             return steps
         if any(ch in path for ch in "*?[") and not os.path.exists(path):
             files = sorted((f for f in globmod.glob(path) if _is_mesh_file(f)), key=natural_key)
@@ -283,7 +300,7 @@ class Series:
                                   fix="check the pattern; quote it so the shell does not expand it")
             self.kind = "glob"
             steps = self._from_files(files)
-            _warn_numbering_gaps(files, path, steps)
+            warn_series_gaps(files, path, steps)
             return steps
         check_readable(path)
         if path.lower().endswith(LISTING_SUFFIXES):
@@ -333,7 +350,7 @@ class Series:
                 raise err.at(where) from None
             if t is TIME_NEEDS_FULL_READ:
                 try:
-                    raw = read_mesh_file(f)
+                    raw = read_mesh_file(f, checked=self.checked_files)
                 except PhasegaugeError:  # an unreadable step: its time is unknown; reading it fails later
                     steps.append(StepInfo(i, float("nan"), "unknown", f, name=names[i]))
                     continue
@@ -413,7 +430,7 @@ class Series:
                                         fix="restore the file" + (", or remove its line from the listing"
                                                                   if named else ""))
             try:
-                raw = read_mesh_file(info.path)
+                raw = read_mesh_file(info.path, checked=self.checked_files)
                 mesh, fields = mesh_and_fields(raw, info.where, self.mesh_pool)
             except PhasegaugeError as err:
                 raise err.at(info.where) from None
@@ -432,7 +449,7 @@ class Series:
     def _read_collection_step(self, info: StepInfo):
         reader = self._xdmf_readers.get(info.path)
         if reader is None:
-            check_hdf5_claims(info.path, xdmf_data_files(info.path))
+            check_hdf5_claims(info.path, xdmf_data_files(info.path), checked=self.checked_files)
             reader = self._xdmf_readers[info.path] = XdmfTimeSeries(info.path)
         return reader.step(info.grid, info.where, self.mesh_pool)
 
@@ -452,93 +469,6 @@ class Series:
         state = self.__dict__.copy()
         state["_xdmf_readers"] = {}
         return state
-
-
-def _number_of(name: str):
-    """The last number in a file name and the name with it masked, or None."""
-    stem = os.path.basename(name)
-    matches = list(re.finditer(r"\d+", stem))
-    if not matches:
-        return None
-    last = matches[-1]
-    return stem[:last.start()] + "#" + stem[last.end():], int(last.group())
-
-
-def numbering_gaps(files: list) -> list:
-    """Gaps in the numbering of ``files`` (natural order): ``[(before, after), ...]`` file numbers.
-
-    Files named alike (same text around their last number) are compared; the
-    usual output interval is the smallest difference between consecutive
-    numbers, and a gap is a jump of a whole multiple (two or more) of it.
-    A change of interval (0, 10, 20, 40, 60) reads as one gap, at the change.
-    """
-    groups: dict = {}
-    for f in files:
-        parsed = _number_of(f)
-        if parsed is not None:
-            groups.setdefault(parsed[0], []).append(parsed[1])
-    gaps = []
-    for numbers in groups.values():
-        numbers = sorted(set(numbers))
-        if len(numbers) < 3:
-            continue
-        diffs = np.diff(numbers)
-        stride = int(diffs.min())
-        for a, b, d in zip(numbers[:-1], numbers[1:], diffs):
-            if d >= 2 * stride and d % stride == 0:
-                gaps.append((a, b))
-    return gaps
-
-
-def time_gaps(times) -> tuple[list, float]:
-    """Gaps in a series' own times: ``([(before, after), ...], interval)``.
-
-    The rule of :func:`numbering_gaps`, on the times: the output interval is the smallest step
-    between consecutive (finite, increasing) times, and a gap is a step of a whole multiple (two
-    or more, to a part in a thousand) of it. Solver files numbered by time-step index (0, 13,
-    26, 55, ...) with a steady output interval in time show no gap; irregular output times
-    that are no multiple of the interval are no gap either.
-    """
-    times = np.asarray([t for t in times if np.isfinite(t)], dtype=np.float64)
-    if times.size < 3:
-        return [], float("nan")
-    diffs = np.diff(times)
-    steps = diffs[diffs > 0]
-    if steps.size == 0:
-        return [], float("nan")
-    interval = float(steps.min())
-    ratio = diffs / interval
-    whole = np.abs(ratio - np.round(ratio)) <= 1e-3 * np.maximum(ratio, 1.0)
-    jumps = np.flatnonzero((ratio >= 2 - 1e-3) & whole)
-    return [(float(times[i]), float(times[i + 1])) for i in jumps], interval
-
-
-def _warn_numbering_gaps(files: list, where: str, steps: list) -> None:
-    if steps and all(s.time_origin in ("file", "xdmf", "listing", "unknown") for s in steps) and \
-            any(s.time_origin != "unknown" for s in steps):
-        # the files store their times: those, not the file numbers, say whether outputs are missing
-        known = np.array([s.time for s in steps if np.isfinite(s.time)])
-        if np.any(np.diff(known) <= 0):
-            return  # times out of order: the order is reported (or sorted) instead
-        gaps, interval = time_gaps(known)
-        if gaps:
-            shown = ", ".join(f"{a:g} to {b:g}" for a, b in gaps[:3]) + (
-                f" and {len(gaps) - 3} more" if len(gaps) > 3 else "")
-            warnings.warn(SeriesWarning(f"the step times jump ({shown}) against the series' output interval "
-                                        f"{interval:g}: steps may be missing or the output interval changed",
-                                        where=where), stacklevel=3)
-        return
-    gaps = numbering_gaps(files)
-    if not gaps:
-        return
-    shown = ", ".join(f"{a} to {b}" for a, b in gaps[:3]) + (f" and {len(gaps) - 3} more" if len(gaps) > 3 else "")
-    if any(s.time_origin == "index" for s in steps):
-        then = ("the times are step indices, so steps after a gap get too early a time: give a 'time,path' "
-                "listing if steps are missing")
-    else:
-        then = "the times stored in the files are used, so the history stays right"
-    warnings.warn(SeriesWarning(f"the file numbers jump ({shown}): steps may be missing or the output interval "
-                                f"changed; {then}", where=where), stacklevel=3)
 
 
 def _time_from_field_data(field_data: dict, where: str = "") -> float | None:

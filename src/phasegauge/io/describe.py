@@ -141,7 +141,7 @@ def _describe(series, scan: str) -> dict:
         "times": [float(t) if np.isfinite(t) else None for t in series.times],
         "time_origin": "+".join(series.time_origins),
         "points": int(mesh.n_points),
-        "cells": int(mesh.n_cells),
+        "cells": int(mesh.n_whole_cells),  # a cell a reader split counts once
         "cell_types": {k: int(v) for k, v in mesh.cell_type_counts.items()},
         "boundary_cell_types": {k: int(v) for k, v in mesh.boundary_type_counts.items()},
         "dimension": int(mesh.dimension),

@@ -13,8 +13,10 @@ corner order of the ordinary cell:
   one corner to its three nearest), so that parallelepipeds and mildly distorted hexahedra are
   recognised, axis-aligned or not;
 * anything else (five, six or more than eight corners, a hexahedron none of the frames
-  orders): split about its centre into tetrahedra over the triangles of its convex
-  hull (scipy's Qhull); every piece keeps the cell's values, so integrals stay exact.
+  orders): split about its centre into tetrahedra over the faces of its convex hull
+  (scipy's Qhull), a face of more than three corners coned from its own centre, shared with
+  the split cell on its other side, so neighbours cut a shared face alike; every piece keeps
+  the cell's values, so integrals stay exact, and is marked as a piece of its cell.
 
 Only the unrecognised cells are handled one at a time (Qhull per cell); the common cases are
 vectorised.
@@ -59,12 +61,20 @@ class ConvexCells:
     centre_corners : list of ndarray of shape (j, k)
         The corners of the split cells, in the order their centres are numbered after the
         input points (a centre's point values are its corners' mean).
+    split : list of bool
+        For each new block, whether its cells are pieces of split cells (``source`` then says
+        which cell each piece belongs to: ``Mesh(pieces=...)``).
+    face_centres : dict
+        Point number of the centre of each hull face of more than three corners, keyed by its
+        sorted corner numbers: one point for every split cell that shares the face.
     """
 
     blocks: list = field(default_factory=list)
     source: list = field(default_factory=list)
     counts: dict = field(default_factory=dict)
     centre_corners: list = field(default_factory=list)
+    split: list = field(default_factory=list)
+    face_centres: dict = field(default_factory=dict)
 
     @property
     def n_centres(self) -> int:
@@ -75,6 +85,7 @@ class ConvexCells:
             return
         self.blocks.append((cell_type, np.ascontiguousarray(cells, dtype=np.int64)))
         self.source.append(np.asarray(rows, dtype=np.int64))
+        self.split.append(count == "split")
         key = count or cell_type
         self.counts[key] = self.counts.get(key, 0) + (len(np.unique(rows)) if count else len(rows))
 
@@ -204,21 +215,74 @@ def _hexahedra(local, frames, cells):
 
 
 def _split_about_centre(points, cells, rows, out: ConvexCells) -> None:
-    """Tetrahedra from the centre of each cell to the triangles of its convex hull (Qhull per cell)."""
+    """Tetrahedra from the centre of each cell over its convex hull (Qhull per cell), conforming.
+
+    A hull face of three corners is one tetrahedron's base; a face of more corners (a quad or
+    polygon: several coplanar hull triangles) is coned from its own centre, one tetrahedron per
+    face edge. The face centre is one point for every cell that shares the face (keyed by its
+    sorted corner numbers), so neighbouring cells cut a shared face alike, as the polyhedra are.
+    """
     from scipy.spatial import ConvexHull
 
-    centres = points[cells].mean(axis=1)
-    extra = np.arange(len(cells)) + len(points) + out.n_centres  # the centres' point numbers
+    base = len(points) + out.n_centres  # the cell centres' first point number
+    face_numbers: dict = {}  # sorted corners -> face centre number among this call's faces
     tets, owner = [], []
     for i, corners in enumerate(cells):  # only cells no table recognises
         hull = ConvexHull(points[corners])
-        tri = corners[hull.simplices]
-        tets.append(np.column_stack([tri, np.full(len(tri), extra[i])]))
-        owner.append(np.full(len(tri), i))
-    tets = np.concatenate(tets)
+        for group in _coplanar_groups(hull):
+            if len(group) == 1:
+                tri = corners[hull.simplices[group[0]]]
+                tets.append([[*tri, base + i]])
+            else:
+                local = hull.simplices[group]
+                key = tuple(sorted(set(corners[local.ravel()].tolist())))
+                face = out.face_centres.get(key)  # a face of a cell split before, or numbered below
+                if face is None:
+                    face = -1 - face_numbers.setdefault(key, len(face_numbers))
+                edges = _outline_edges(local)
+                tets.append(np.column_stack([corners[edges], np.full(len(edges), face),
+                                             np.full(len(edges), base + i)]))
+            owner.append(np.full(len(tets[-1]), i))
+    tets = np.concatenate([np.asarray(t, dtype=np.int64) for t in tets])
     owner = np.concatenate(owner)
-    flip = _six_volumes(np.concatenate([points[tets[:, :3]], centres[owner][:, None]], axis=1)) < 0
+    # face centres after the cell centres, grouped by their corner count (one centre array per count)
+    keys = sorted(face_numbers, key=len)
+    number = np.empty(len(keys), dtype=np.int64)
+    for j, key in enumerate(keys):
+        number[face_numbers[key]] = out.face_centres[key] = base + len(cells) + j
+    faces = tets[:, 2] < 0
+    tets[faces, 2] = number[-1 - tets[faces, 2]]
+    centres = points[cells].mean(axis=1)
+    face_corners = [np.array([k for k in keys if len(k) == n], dtype=np.int64) for n in sorted({len(k) for k in keys})]
+    earlier = np.zeros((out.n_centres, 3))  # centres of earlier blocks: only their shared face centres matter
+    for key, at in out.face_centres.items():
+        if at < base:
+            earlier[at - len(points)] = points[list(key)].mean(axis=0)
+    coords = np.vstack([points, earlier, centres] + [points[f].mean(axis=1) for f in face_corners])
+    flip = _six_volumes(coords[tets]) < 0
     tets[flip, 0], tets[flip, 1] = tets[flip, 1].copy(), tets[flip, 0].copy()
     out.centre_corners.append(cells)
+    out.centre_corners.extend(face_corners)
     out.add("tetra", tets, rows[owner], count="split")
     out.counts["split_pieces"] = out.counts.get("split_pieces", 0) + len(tets)
+
+
+def _coplanar_groups(hull) -> list:
+    """The hull's triangles grouped by the face they lie in (equal plane equations to round-off)."""
+    eq = hull.equations  # (m, 4): unit normal and offset
+    scale = max(float(np.ptp(hull.points, axis=0).max()), np.finfo(float).tiny)
+    same = (eq[:, :3] @ eq[:, :3].T > 1 - 1e-9) & (np.abs(eq[:, 3][:, None] - eq[:, 3][None, :]) <= 1e-9 * scale)
+    groups, seen = [], np.zeros(len(eq), dtype=bool)
+    for t in range(len(eq)):
+        if not seen[t]:
+            members = np.flatnonzero(same[t] & ~seen)
+            seen[members] = True
+            groups.append(members)
+    return groups
+
+
+def _outline_edges(triangles: np.ndarray) -> np.ndarray:
+    """The edges of a fan of triangles (k, 3) that lie on its outline (used by one triangle), (j, 2)."""
+    edges = np.concatenate([triangles[:, [0, 1]], triangles[:, [1, 2]], triangles[:, [2, 0]]])
+    _, index, counts = np.unique(np.sort(edges, axis=1), axis=0, return_index=True, return_counts=True)
+    return edges[index[counts == 1]]

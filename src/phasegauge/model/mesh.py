@@ -374,6 +374,11 @@ class Mesh:
         return self.cell_measures ** (1.0 / self.dimension)
 
     @cached_property
+    def n_whole_cells(self) -> int:
+        """Number of cells as the file has them: the pieces of a split cell (:attr:`cell_parents`) count once."""
+        return self.n_cells if self.cell_parents is None else int(np.unique(self.cell_parents).size)
+
+    @cached_property
     def total_measure(self) -> float:
         """Domain area (2D) or volume (3D)."""
         return float(self.cell_measures.sum())

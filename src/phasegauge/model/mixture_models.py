@@ -139,10 +139,10 @@ class NrtlModel(_BinaryActivityModel):
         for name in ("tau_a", "tau_b", "tau_e", "tau_f"):
             object.__setattr__(self, name, _pair(getattr(self, name), name))
         object.__setattr__(self, "kappa", check_kappa(self.kappa))
-        alpha = float(self.alpha)
-        if not np.isfinite(alpha) or alpha < 0:
-            raise OptionError(f"alpha must be a number >= 0, found {self.alpha!r}",
-                              fix="use the non-randomness of the fit, typically 0.2 to 0.47")
+        fix = "use the non-randomness of the fit, typically 0.2 to 0.47"
+        alpha = finite_number("alpha", self.alpha, fix=fix)
+        if alpha < 0:
+            raise OptionError(f"alpha must be a number >= 0, found {self.alpha!r}", fix=fix)
         object.__setattr__(self, "alpha", alpha)
 
     kind = "nrtl"

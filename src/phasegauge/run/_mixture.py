@@ -16,6 +16,7 @@ import os
 import numpy as np
 
 from ..errors import OptionError
+from ..model._numbers import finite_number
 
 __all__ = ["normalize_mixture", "mixture_step", "mixture_findings", "mixture_report_arrays",
            "MIXTURE_COLUMNS", "SOLUTE_COLUMNS"]
@@ -30,13 +31,11 @@ SOLUTE_COLUMNS = ("solute_lean", "solute_rich", "partition_coefficient", "extrac
 
 
 def _positive(value, name, fix):
-    try:
-        value = float(value)
-    except (TypeError, ValueError):
-        raise OptionError(f"{name} must be a number, found {value!r}", fix=fix) from None
-    if not (math.isfinite(value) and value > 0):
+    """``value`` as a finite float > 0 (the shared :func:`finite_number` check, then the sign)."""
+    number = finite_number(name, value, fix=fix)
+    if not number > 0:
         raise OptionError(f"{name} must be a number > 0, found {value!r}", fix=fix)
-    return value
+    return number
 
 
 def _one_temperature(options, needs: str) -> dict:

@@ -282,7 +282,9 @@ def assemble(series, results: list, options, *, notes=(), feed: TrackingFeed | N
                                 cells_across=cells, physical_diffusivity=options.diffusivity)
     from ._mixture import mixture_findings
 
-    found = findings(steps, droplets, audit, options, skipped) + mixture_findings(steps, options) + [
+    dimension = done[0].dimension if done else None
+    found = findings(steps, droplets, audit, options, skipped, dimension=dimension)
+    found += mixture_findings(steps, options) + [
         Finding("warning", "warning", text, {"category": category.__name__})
         for category, text in summary if not issubclass(category, SkippedStepWarning)]
     mesh = None
@@ -326,8 +328,12 @@ def _worst(steps, column, how=np.nanmax) -> float:
     return float(how(values)) if np.isfinite(values).any() else 0.0
 
 
-def findings(steps, droplets, audit: dict, options, skipped: list) -> list:
+def findings(steps, droplets, audit: dict, options, skipped: list, *, dimension: int | None = None) -> list:
     """The findings of the tables (widening interface, drift, overshoot, resolution, skipped steps).
+
+    ``dimension`` is the dimension the steps were measured in (2 or 3; a 2D mesh in 3D space and a
+    mesh one cell thick measured per unit depth are 2): the Gibbs-Thomson shift of the bulk
+    plateaus' note needs it (None: no expected shift).
 
     Tolerances: overshoot above ``ROUNDOFF_VOLUME`` (1e-9) x the domain volume; drift above
     ``options.drift_tolerance`` relative to the first step's phase volume, never below the same
@@ -370,7 +376,7 @@ def findings(steps, droplets, audit: dict, options, skipped: list) -> list:
     if "overshoot_volume" in steps:
         worst = _worst(steps, "overshoot_volume")
         tolerance = ROUNDOFF_VOLUME * domain
-        plateaus = _bulk_plateaus(steps, droplets, options) if worst > tolerance else None
+        plateaus = _bulk_plateaus(steps, droplets, options, dimension) if worst > tolerance else None
         if plateaus is not None:
             found.append(plateaus)
         elif worst > tolerance:
@@ -430,7 +436,7 @@ def findings(steps, droplets, audit: dict, options, skipped: list) -> list:
     return found
 
 
-def _bulk_plateaus(steps, droplets=None, options=None):
+def _bulk_plateaus(steps, droplets=None, options=None, dimension=None):
     """A note on bulk plateaus off 0 and 1 that account for c leaving [0, 1], or None.
 
     A diffuse-interface (Cahn-Hilliard) bulk sits off the wells by the Gibbs-Thomson shift of
@@ -452,7 +458,7 @@ def _bulk_plateaus(steps, droplets=None, options=None):
         return None
     figures = {"bulk_c_low": low, "bulk_c_high": high, "c_min": c_min, "c_max": c_max,
                "shift_low": low, "shift_high": high - 1.0}
-    expected = _expected_shift(steps, droplets, options)
+    expected = _expected_shift(droplets, options, dimension)
     words = ""
     if expected is not None:
         figures["expected_shift"] = expected
@@ -464,22 +470,24 @@ def _bulk_plateaus(steps, droplets=None, options=None):
                    "inside the plateaus' range", figures)
 
 
-def _expected_shift(steps, droplets, options):
+def _expected_shift(droplets, options, dimension):
     """Gibbs-Thomson shift of the bulk in c for the largest drop of the last step, or None.
 
     For the double well h (phi - lean)^2 (phi - rich)^2 with gradient coefficient kappa:
     sigma = (rich - lean)^3 sqrt(2 kappa h) / 6, and a drop of radius R raises the chemical
     potential of both bulks by mu = (d - 1) sigma / (R (rich - lean)), which moves each bulk by
     mu / f'' with f'' = 2 h (rich - lean)^2 at the wells (Cahn & Hilliard 1958; linearised).
+    ``d`` is the dimension the steps were measured in (a disc has one curvature, a sphere two).
     """
     model = getattr(options, "free_energy", None)
-    if getattr(model, "kind", None) != "double-well" or droplets is None or not len(droplets) or "equivalent_diameter" not in droplets:
+    if (getattr(model, "kind", None) != "double-well" or dimension not in (2, 3) or droplets is None
+            or not len(droplets) or "equivalent_diameter" not in droplets):
         return None
     last = droplets[droplets["step"] == droplets["step"].max()]
     radius = 0.5 * float(np.nanmax(last["equivalent_diameter"]))
     if not radius > 0:
         return None
-    dim = 2 if np.isfinite(last["circularity"]).any() else 3
+    dim = int(dimension)
     gap = model.rich - model.lean
     sigma = gap ** 3 * np.sqrt(2.0 * model.kappa * model.height) / 6.0
     mu = (dim - 1) * sigma / (radius * gap)

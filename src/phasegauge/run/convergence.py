@@ -114,7 +114,7 @@ def _mesh_size(source: ConvergenceSource, known: bool) -> None:
         warnings.simplefilter("ignore", PhasegaugeWarning)
         with Series(source.series_path) as series:
             mesh = series.read_mesh(0)
-    source.n_cells = int(mesh.n_cells)
+    source.n_cells = int(mesh.n_whole_cells)
     source.dimension = int(mesh.dimension)
     source.total_measure = float(mesh.total_measure)
 

@@ -192,13 +192,15 @@ def analyse_step(step, options, *, contour_dir: str | None = None, reported_mesh
                 mesh, u_cell if u_location == "cell" else u_point, ind, velocity_location=u_location)
             m.update({k: v for k, v in flux.items() if k != "open_boundary"})
             m["open_boundary"] = bool(flux["open_boundary"])
-    contour = extremes = measured = None
+    contour = extremes = measured = plateaus = None
     if "interface" in options.analyses or "droplets" in options.analyses:
         contour, extremes = interface.find_interface(mesh, ind.point, level=options.level, return_extremes=True)
+        # the measured bulk values of the two phases: the widths and the droplets are taken between them
+        plateaus = interface.bulk_plateaus(ind.point, options.level)
     if "interface" in options.analyses:
         # a mixture run keeps the distances the widths measured: its bulk cells need few more
         widths = interface.interface_metrics(mesh, ind, level=options.level, contour=contour, extremes=extremes,
-                                             return_distances=options.model is not None)
+                                             return_distances=options.model is not None, plateaus=plateaus)
         if options.model is not None:
             widths, measured = widths
         m.update(widths)
@@ -208,8 +210,7 @@ def analyse_step(step, options, *, contour_dir: str | None = None, reported_mesh
             write_contour(contour, os.path.join(contour_dir, f"interface_{step.index:06d}.vtu"), time=step.time,
                           step=step.index)
     if "droplets" in options.analyses:
-        # droplets measured between the measured bulk values of the two phases (as the widths)
-        low, high, tail = interface.bulk_plateaus(ind.point, options.level)
+        low, high, tail = plateaus  # droplets measured between the bulk values the widths used
         found = droplets_mod.label_droplets(
             mesh, ind.cell, level=options.level, connectivity=options.adjacency, periodic=tuple(options.periodic),
             velocity=u_cell, interface_cells=contour.cells, interface_sizes=contour.element_sizes,

@@ -1,0 +1,124 @@
+"""Gaps in a series: steps that may be missing, from the stored times or else the file numbers.
+
+:class:`~phasegauge.io.Series` warns through :func:`warn_series_gaps` after discovery. With stored times, a gap is
+a step of a whole multiple (two or more) of the most common output interval; without them, a jump
+of a whole multiple of the smallest difference between file numbers.
+"""
+
+from __future__ import annotations
+
+import os
+import re
+import warnings
+
+import numpy as np
+
+from ..errors import SeriesWarning
+
+__all__ = ["numbering_gaps", "output_interval", "time_gaps", "warn_series_gaps", "INTERVAL_TOLERANCE"]
+
+#: time steps within this fraction of each other count as the same output interval
+INTERVAL_TOLERANCE = 1e-3
+
+
+def _number_of(name: str):
+    """The last number in a file name and the name with it masked, or None."""
+    stem = os.path.basename(name)
+    matches = list(re.finditer(r"\d+", stem))
+    if not matches:
+        return None
+    last = matches[-1]
+    return stem[:last.start()] + "#" + stem[last.end():], int(last.group())
+
+
+def numbering_gaps(files: list) -> list:
+    """Gaps in the numbering of ``files`` (natural order): ``[(before, after), ...]`` file numbers.
+
+    Files named alike (same text around their last number) are compared; the
+    usual output interval is the smallest difference between consecutive
+    numbers, and a gap is a jump of a whole multiple (two or more) of it.
+    A change of interval (0, 10, 20, 40, 60) reads as one gap, at the change.
+    """
+    groups: dict = {}
+    for f in files:
+        parsed = _number_of(f)
+        if parsed is not None:
+            groups.setdefault(parsed[0], []).append(parsed[1])
+    gaps = []
+    for numbers in groups.values():
+        numbers = sorted(set(numbers))
+        if len(numbers) < 3:
+            continue
+        diffs = np.diff(numbers)
+        stride = int(diffs.min())
+        for a, b, d in zip(numbers[:-1], numbers[1:], diffs):
+            if d >= 2 * stride and d % stride == 0:
+                gaps.append((a, b))
+    return gaps
+
+
+def output_interval(steps) -> float:
+    """The most common of ``steps`` (positive time steps), equal to a part in a thousand.
+
+    The steps are sorted and cut where one differs from the next by more than
+    :data:`INTERVAL_TOLERANCE` of it; the largest group wins (the smaller interval on a tie),
+    and its median is the interval. One short step (an extra output at a restart) or a few
+    adaptive steps do not move it.
+    """
+    steps = np.sort(np.asarray(steps, dtype=np.float64))
+    cuts = np.flatnonzero(np.diff(steps) > INTERVAL_TOLERANCE * steps[1:]) + 1
+    bounds = np.concatenate([[0], cuts, [steps.size]])
+    largest = int(np.argmax(np.diff(bounds)))  # the first (smallest) group on a tie
+    return float(np.median(steps[bounds[largest]:bounds[largest + 1]]))
+
+
+def time_gaps(times) -> tuple[list, float]:
+    """Gaps in a series' own times: ``([(before, after), ...], interval)``.
+
+    The output interval is the most common step between consecutive (finite, increasing) times
+    (:func:`output_interval`), and a gap is a step of a whole multiple (two or more, to a part in
+    a thousand) of it. Solver files numbered by time-step index (0, 13, 26, 55, ...) with a
+    steady output interval in time show no gap; irregular output times that are no multiple of
+    the interval (an extra output at a restart, adaptive steps) are no gap either.
+    """
+    times = np.asarray([t for t in times if np.isfinite(t)], dtype=np.float64)
+    if times.size < 3:
+        return [], float("nan")
+    diffs = np.diff(times)
+    steps = diffs[diffs > 0]
+    if steps.size == 0:
+        return [], float("nan")
+    interval = output_interval(steps)
+    ratio = diffs / interval
+    whole = np.abs(ratio - np.round(ratio)) <= 1e-3 * np.maximum(ratio, 1.0)
+    jumps = np.flatnonzero((ratio >= 2 - 1e-3) & whole)
+    return [(float(times[i]), float(times[i + 1])) for i in jumps], interval
+
+
+def warn_series_gaps(files: list, where: str, steps: list) -> None:
+    """Warn (:class:`SeriesWarning`) of steps that may be missing: from the stored times, else the file numbers."""
+    if steps and all(s.time_origin in ("file", "xdmf", "listing", "unknown") for s in steps) and \
+            any(s.time_origin != "unknown" for s in steps):
+        # the files store their times: those, not the file numbers, say whether outputs are missing
+        known = np.array([s.time for s in steps if np.isfinite(s.time)])
+        if np.any(np.diff(known) <= 0):
+            return  # times out of order: the order is reported (or sorted) instead
+        gaps, interval = time_gaps(known)
+        if gaps:
+            shown = ", ".join(f"{a:g} to {b:g}" for a, b in gaps[:3]) + (
+                f" and {len(gaps) - 3} more" if len(gaps) > 3 else "")
+            warnings.warn(SeriesWarning(f"the step times jump ({shown}) against the series' most common output "
+                                        f"interval {interval:g}: steps may be missing or the output interval changed",
+                                        where=where), stacklevel=3)
+        return
+    gaps = numbering_gaps(files)
+    if not gaps:
+        return
+    shown = ", ".join(f"{a} to {b}" for a, b in gaps[:3]) + (f" and {len(gaps) - 3} more" if len(gaps) > 3 else "")
+    if any(s.time_origin == "index" for s in steps):
+        then = ("the times are step indices, so steps after a gap get too early a time: give a 'time,path' "
+                "listing if steps are missing")
+    else:
+        then = "the times stored in the files are used, so the history stays right"
+    warnings.warn(SeriesWarning(f"the file numbers jump ({shown}): steps may be missing or the output interval "
+                                f"changed; {then}", where=where), stacklevel=3)

@@ -1,0 +1,68 @@
+"""The time-gap warning of a series takes the most common output interval, not the smallest step.
+
+Outside check: the step times are written by hand (a regular interval of 0.1, one extra output at
+0.55 as a restart writes it, one output left out), so which steps are missing is known exactly.
+"""
+
+import warnings
+
+import numpy as np
+import pytest
+
+from phasegauge.io import Series
+from phasegauge.io._series_gaps import time_gaps
+from phasegauge.meshgen import grid_mesh, to_meshio
+
+REGULAR = [round(0.1 * k, 10) for k in range(11)]  # 0, 0.1, ..., 1.0
+
+
+def test_one_extra_output_is_no_gap_of_every_normal_step():
+    times = sorted(REGULAR + [0.55])  # a restart writes one extra output
+    gaps, interval = time_gaps(times)
+    assert gaps == []
+    assert interval == pytest.approx(0.1)
+
+
+def test_a_missing_output_is_named_against_the_common_interval():
+    times = [t for t in REGULAR if t != 0.4]
+    gaps, interval = time_gaps(times)
+    assert gaps == [(0.3, 0.5)]
+    assert interval == pytest.approx(0.1)
+    # with an extra output as well, only the missing one is a gap
+    gaps, _ = time_gaps(sorted(times + [0.75]))
+    assert gaps == [(0.3, 0.5)]
+
+
+def test_adaptive_steps_around_a_common_interval_show_no_gap():
+    times = np.cumsum([0.0, 0.1, 0.1, 0.05, 0.05, 0.1, 0.1, 0.1, 0.025, 0.075, 0.1])
+    assert time_gaps(times)[0] == []
+
+
+def _folder(tmp_path, times):
+    import pyvista
+
+    folder = tmp_path / "run"
+    folder.mkdir()
+    mesh = grid_mesh((4, 4))
+    for k, t in enumerate(times):
+        grid = pyvista.from_meshio(to_meshio(mesh, point_data={"c": np.full(mesh.n_points, 0.5)}))
+        grid.field_data["TimeValue"] = np.array([t])
+        grid.save(str(folder / f"out_{k}.vtu"))
+    return str(folder)
+
+
+def _series_warnings(path):
+    with warnings.catch_warnings(record=True) as caught:
+        warnings.simplefilter("always")
+        Series(path)
+    return [str(w.message) for w in caught if "jump" in str(w.message)]
+
+
+def test_series_with_an_extra_restart_output_does_not_warn(tmp_path):
+    assert _series_warnings(_folder(tmp_path, sorted(REGULAR + [0.55]))) == []
+
+
+def test_series_with_a_missing_output_warns_with_the_interval_used(tmp_path):
+    texts = _series_warnings(_folder(tmp_path, [t for t in REGULAR if t != 0.4]))
+    assert len(texts) == 1, texts
+    assert "0.3 to 0.5" in texts[0] and "most common output interval 0.1" in texts[0], texts[0]
