@@ -8,7 +8,7 @@ fits a limited least-squares linear function through the cells around each point
 
 from __future__ import annotations
 
-from typing import TYPE_CHECKING
+from typing import TYPE_CHECKING, NamedTuple
 
 import numpy as np
 
@@ -17,7 +17,7 @@ from ._grouping import CHUNK
 if TYPE_CHECKING:
     from .mesh import Mesh
 
-__all__ = ["corner_sums", "point_stencil", "linear_point_values"]
+__all__ = ["corner_sums", "point_stencil", "point_fit", "PointFit", "linear_point_values"]
 
 
 def corner_sums(mesh: Mesh, values: np.ndarray, finite: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
@@ -57,19 +57,90 @@ def point_stencil(mesh: Mesh):
     return rows, cols, dx, w, at.indptr
 
 
+class PointFit(NamedTuple):
+    """The least-squares point fit through every cell around each point, as one weight per pair.
+
+    With every cell good the fit's matrix depends on the mesh only, so the fitted value of point
+    p is ``sum coef[j] * value[cols[j]]`` over its pairs j: ``coef`` is the pair's inverse-distance
+    weight times its basis row dotted with the first column of the point's inverse matrix.
+    """
+
+    cols: np.ndarray    # cell of each (point, cell) pair, grouped by point
+    starts: np.ndarray  # first pair of each point that has pairs
+    points: np.ndarray  # those points
+    coef: np.ndarray    # weight of each pair's cell value in its point's fit (0 where not posed)
+    posed: np.ndarray   # per point of ``points``: the fit is well posed
+
+
+def _normal_matrix(rows, basis, wk, n, d):
+    A = np.empty((n, d + 1, d + 1))
+    for i in range(d + 1):
+        for j in range(i, d + 1):
+            A[:, i, j] = A[:, j, i] = np.bincount(rows, weights=wk * basis[:, i] * basis[:, j], minlength=n)
+    return A
+
+
+def _well_posed(A, count, d):
+    """A well-posed fit needs more cells than unknowns and a matrix far from singular."""
+    diag = np.einsum("nii->n", A)
+    det = np.linalg.det(A)
+    return (count > d + 1) & (np.abs(det) > 1e-10 * np.maximum(diag, 1e-300) ** (d + 1))
+
+
+def _stencil(mesh: Mesh):
+    return mesh.memo("point_stencil", lambda: point_stencil(mesh))
+
+
+def point_fit(mesh: Mesh) -> PointFit:
+    """The :class:`PointFit` of ``mesh`` with every cell good (built once per mesh; the stencil
+    it is made from is not kept)."""
+
+    def compute():
+        rows, cols, dx, w, indptr = mesh.memo("point_stencil", lambda: point_stencil(mesh), keep=False)
+        d, n = mesh.dimension, mesh.n_points
+        nonempty = np.flatnonzero(np.diff(indptr) > 0)
+        starts = indptr[:-1][nonempty]
+        offsets = np.ascontiguousarray(dx.T)  # the basis is (1, dx): its first column is not formed
+        del dx
+        # the normal matrices, summed over each point's run of pairs (the pairs are grouped by point)
+        A = np.zeros((n, d + 1, d + 1))
+        for i in range(d + 1):
+            for j in range(i, d + 1):
+                weight = w if j == 0 else w * offsets[j - 1] if i == 0 else w * offsets[i - 1] * offsets[j - 1]
+                A[nonempty, i, j] = A[nonempty, j, i] = np.add.reduceat(weight, starts)
+        posed = _well_posed(A, np.diff(indptr), d)
+        first = np.zeros((d + 1, n))  # first column of the inverse of each posed matrix, by component
+        if posed.any():
+            e0 = np.zeros((int(posed.sum()), d + 1, 1))
+            e0[:, 0, 0] = 1.0
+            first[:, posed] = np.linalg.solve(A[posed], e0)[:, :, 0].T
+        del A
+        coef = first[0][rows]
+        for i in range(d):
+            coef += offsets[i] * first[i + 1][rows]
+        coef *= w
+        return PointFit(cols, starts, nonempty, coef, posed[nonempty])
+
+    return mesh.memo("point_fit", compute)
+
+
 def linear_point_values(mesh: Mesh, flat: np.ndarray, good: np.ndarray, fallback: np.ndarray) -> np.ndarray:
     """Point values of the least-squares linear fit through the good cells around each point, kept in
     their range; ``fallback`` where the fit is ill-posed."""
-    rows, cols, dx, w, indptr = mesh._point_stencil
+    if good.all():
+        return _fit_all_good(point_fit(mesh), flat, fallback)
+    return _fit_some_good(mesh, flat, good, fallback)
+
+
+def _fit_some_good(mesh: Mesh, flat: np.ndarray, good: np.ndarray, fallback: np.ndarray) -> np.ndarray:
+    """:func:`linear_point_values` with the bad cells left out of each point's fit."""
+    rows, cols, dx, w, indptr = _stencil(mesh)
     d = mesh.dimension
     ok = good[cols]
     wk = np.where(ok, w, 0.0)
     basis = np.concatenate([np.ones((len(rows), 1)), dx], axis=1)  # (m, d+1)
     n = mesh.n_points
-    A = np.empty((n, d + 1, d + 1))
-    for i in range(d + 1):
-        for j in range(i, d + 1):
-            A[:, i, j] = A[:, j, i] = np.bincount(rows, weights=wk * basis[:, i] * basis[:, j], minlength=n)
+    A = _normal_matrix(rows, basis, wk, n, d)
     k = flat.shape[1]
     vals = np.where(ok[:, None], flat[cols], 0.0)
     B = np.empty((n, d + 1, k))
@@ -77,10 +148,7 @@ def linear_point_values(mesh: Mesh, flat: np.ndarray, good: np.ndarray, fallback
         for c in range(k):
             B[:, i, c] = np.bincount(rows, weights=wk * basis[:, i] * vals[:, c], minlength=n)
     count = np.bincount(rows, weights=ok.astype(np.float64), minlength=n)
-    # a well-posed fit needs more cells than unknowns and a matrix far from singular
-    diag = np.einsum("nii->n", A)
-    det = np.linalg.det(A)
-    posed = (count > d + 1) & (np.abs(det) > 1e-10 * np.maximum(diag, 1e-300) ** (d + 1))
+    posed = _well_posed(A, count, d)
     out = fallback.copy()
     if posed.any():
         sol = np.linalg.solve(A[posed], B[posed])[:, 0, :]
@@ -94,4 +162,18 @@ def linear_point_values(mesh: Mesh, flat: np.ndarray, good: np.ndarray, fallback
         vmax[nonempty] = np.maximum.reduceat(hi, starts[nonempty], axis=0)
         vmin[nonempty] = np.minimum.reduceat(lo, starts[nonempty], axis=0)
         out[posed] = np.clip(sol, vmin[posed], vmax[posed])
+    return out
+
+
+def _fit_all_good(fit: PointFit, flat: np.ndarray, fallback: np.ndarray) -> np.ndarray:
+    """:func:`linear_point_values` with every cell good, on the mesh's :class:`PointFit`."""
+    out = fallback.copy()
+    if not fit.posed.any():
+        return out
+    vals = np.take(flat, fit.cols, axis=0)  # (m, k)
+    value = np.add.reduceat(fit.coef[:, None] * vals, fit.starts, axis=0)
+    vmax = np.maximum.reduceat(vals, fit.starts, axis=0)
+    vmin = np.minimum.reduceat(vals, fit.starts, axis=0)
+    keep = fit.posed
+    out[fit.points[keep]] = np.clip(value[keep], vmin[keep], vmax[keep])
     return out

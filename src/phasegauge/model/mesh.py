@@ -24,7 +24,7 @@ from functools import cached_property
 import numpy as np
 
 from ..errors import UnsupportedMeshError
-from ._conversions import corner_sums, linear_point_values, point_stencil
+from ._conversions import corner_sums, linear_point_values
 from ._faces import face_rows, face_topology, grid_face_numbers, grouped_faces, local_faces, row_owners, unique_edges
 from ._geometry import cell_geometry
 from ._grouping import index_dtype
@@ -589,11 +589,6 @@ class Mesh:
         if method == "linear":
             out = linear_point_values(self, flat, np.all(finite, axis=1), out)
         return out.reshape((self.n_points,) + v.shape[1:])
-
-    @cached_property
-    def _point_stencil(self):
-        """(point, cell) pairs of the point-cell incidence with centroid offsets, grouped by point."""
-        return point_stencil(self)
 
     @cached_property
     def _incidence_t(self):
