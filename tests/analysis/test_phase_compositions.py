@@ -187,3 +187,27 @@ def test_bucket_test_on_the_mesh_fixed_grid_agrees_with_brute_force():
             near = _maybe_near_cells(mesh, cells, centres, reach)
             within = cdist(mesh.cell_centroids[cells], centres).min(axis=1) <= reach
             np.testing.assert_array_equal(near, within)
+
+
+def test_bulk_cells_from_the_widths_distances_on_a_sphere_of_tetrahedra():
+    # a tanh sphere of radius 0.3: the analytic distance is |r - 0.3|; cells settled by their corners'
+    # distances may differ from their own search only within O(h^2 / R) of the bulk reach
+    from phasegauge.analysis.interface import find_interface, interface_metrics
+    from phasegauge.analysis.thermo import interface_distance
+
+    n = 24
+    mesh = grid_mesh((n, n, n), kind="tetra")
+    c_point = 0.5 * (1 + np.tanh((0.3 - np.linalg.norm(mesh.coordinates - 0.5, axis=1)) / 0.06))
+    c_cell = mesh.point_to_cell(c_point)
+    contour = find_interface(mesh, c_point)
+    metrics, measured = interface_metrics(mesh, c_point, contour=contour, return_distances=True)
+    reach = 1.5 * metrics["interface_width"]
+    searched = interface_distance(mesh, c_cell, contour, reach=reach)
+    reused = interface_distance(mesh, c_cell, contour, reach=reach, measured=measured)
+    np.testing.assert_array_equal(searched > 0, reused > 0)
+    exact = np.abs(np.linalg.norm(mesh.cell_centroids - 0.5, axis=1) - 0.3)
+    h = 1.0 / n
+    differ = (np.abs(searched) > reach) != (np.abs(reused) > reach)
+    assert np.all(np.abs(exact[differ] - reach) < h * h / 0.3 + 0.05 * h), differ.sum()
+    bulk = np.abs(reused) > reach
+    assert bulk[exact > reach + h].all() and not bulk[exact < reach - h].any()

@@ -27,9 +27,6 @@ __all__ = ["interface_distance", "bulk_compositions", "mixture_state", "solute_d
            "gibbs_thomson_shift", "MIXTURE_STATES"]
 
 MIXTURE_STATES = ("stable", "metastable", "unstable")
-#: a cell whose corners' mean distance lies farther than this many cell sizes from the bulk
-#: reach is settled by it (:func:`interface_distance` with ``measured``)
-_SETTLED = 0.25
 
 
 def _cell_arrays(mesh, composition, distance):
@@ -62,13 +59,14 @@ def interface_distance(mesh, c_cell, contour, *, level=0.5, reach=np.inf, measur
         The point distances the width estimators measured on this mesh and contour
         (``interface_metrics(..., return_distances=True)``). A cell whose corners were all
         searched gets the mean of their distance magnitudes (a corner beyond the search's
-        ``bound`` counts as ``bound``, a lower bound: such a cell is settled only as bulk)
-        when that lies more than a quarter of the cell size (``mesh.cell_sizes``) from
-        ``reach``: the distance is linear across a cell up to O(h^2 / R) on an interface of
-        curvature radius R, so the cell falls on the same side of ``reach`` as its centroid's
-        own distance. The other cells are searched as without it. Cells with ``c`` below 0.01
-        that the search calls bulk through its thinned element set (see ``_signed_distance``)
-        can come out nearer.
+        ``bound`` counts as ``bound``, a lower bound: such a cell is settled only as bulk, and
+        searched when the mean is within ``reach``). The distance is linear across a cell up
+        to O(h^2 / R) on an interface of curvature radius R, and both the corners' and a
+        centroid's own distances are these second-order nearest-plane estimates, so a cell
+        can fall on the other side of ``reach`` than its centroid's own search would put it
+        only within O(h^2 / R) of ``reach``. The other cells are searched as without it.
+        Cells with ``c`` below 0.01 that the search calls bulk through its thinned element set
+        (see ``_signed_distance``) can come out nearer.
 
     Returns
     -------
@@ -105,16 +103,13 @@ def interface_distance(mesh, c_cell, contour, *, level=0.5, reach=np.inf, measur
         dist = np.empty(c.size)
         for block, start in zip(mesh.blocks, mesh.block_offsets[:-1]):
             dist[start:start + len(block)] = corner_mean(magnitude, block.connectivity)
-        unknown = np.isnan(dist)
-        # settled by the corners unless near reach (False where a corner is NaN): the rest is searched
-        margin = _SETTLED * mesh.cell_sizes
-        open_ = ~(np.abs(dist - reach) > margin) & ~unknown
+        # settled by the corners (NaN where a corner was not searched: those are searched)
+        unknown = np.flatnonzero(np.isnan(dist))
+        rows = np.zeros(0, dtype=np.int64)
         beyond = np.isinf(corners)
-        if beyond.any():  # a corner beyond the bound only bounds the mean from below
-            nearer = np.flatnonzero(dist < reach - margin)
-            open_[nearer[_any_corner(mesh, beyond, nearer)]] = True
-        rows = np.flatnonzero(open_)
-        unknown = np.flatnonzero(unknown)
+        if beyond.any():  # a corner beyond the bound only bounds the mean from below: search if not past reach
+            nearer = np.flatnonzero(dist <= reach)
+            rows = nearer[_any_corner(mesh, beyond, nearer)]
     if limited:  # cells with no element centroid within reach: nothing to search
         unknown = unknown[_maybe_near_cells(mesh, unknown, geometry.centroids[:, list(contour.plane_axes)], reach)]
     rows = np.concatenate([rows, unknown])
