@@ -21,6 +21,7 @@ from __future__ import annotations
 import numpy as np
 
 from ..errors import OptionError
+from ..model._grouping import _bits, _sort_order
 from ..model._numbers import finite_number
 from ..model.contour import Contour
 from ..model.corners import CornerExtremes, cell_gradient, corner_extremes
@@ -102,7 +103,7 @@ def _march_simplices(split: SimplexSplit, level: float, dim: int):
         single = count != 2
         Ps = P[single]
         e = np.stack([Ps[:, [0, 1]], Ps[:, [0, 2]], Ps[:, [0, 3]]], axis=1)
-        up = X[Ps[:, 0]] - X[Ps[:, 1:]].mean(axis=1)
+        up = X[Ps[:, 0]] - ((X[Ps[:, 1]] + X[Ps[:, 2]]) + X[Ps[:, 3]]) / 3.0  # the mean of the other three
         up[lone_below[single]] *= -1
         edges_list.append((e, up))
         elem_owner.append(owner[single])
@@ -133,8 +134,14 @@ def _find_on_simplices(mesh: Mesh, c: np.ndarray, level: float, extremes: Corner
     ends = E.reshape(-1, 2)
     n_vertices = np.int64(split.coordinates.shape[0])
     key = np.minimum(ends[:, 0], ends[:, 1]) * n_vertices + np.maximum(ends[:, 0], ends[:, 1])
-    unique, inverse = np.unique(key, return_inverse=True)  # same order as sorting the edge rows
-    inverse = inverse.ravel()
+    # the distinct edges in increasing key (as sorting the edge rows), each element vertex's edge:
+    # np.unique(key, return_inverse=True), by one packed sort
+    order, key = _sort_order(key, _bits(int(n_vertices) * int(n_vertices)))
+    distinct = np.ones(key.size, dtype=bool)
+    distinct[1:] = key[1:] != key[:-1]
+    unique = key[distinct]
+    inverse = np.empty(key.size, dtype=np.int64)
+    inverse[order] = np.cumsum(distinct) - 1
     X, v = split.coordinates, split.values
     p, q = unique // n_vertices, unique % n_vertices
     t = (level - v[p]) / (v[q] - v[p])
