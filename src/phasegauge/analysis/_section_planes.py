@@ -11,6 +11,7 @@ interpolates its fields along the cut edges (:mod:`._cross_sections` sums the mo
 from __future__ import annotations
 
 from dataclasses import dataclass
+from types import MappingProxyType
 
 import numpy as np
 
@@ -92,7 +93,7 @@ def _plane_pieces(mesh: Mesh, axis: int, position: float, lower_end: bool, cells
     parent, s, below = parent[rows], s[rows], below[rows]
     k = dim + 1
     # each crossed simplex's corners in increasing s: the sorted s, and the corner slot each came
-    # from (narrow, so the exchanges move little); the nodes are read through the slots below
+    # from (int8: little to write); the nodes are read through the slots below
     s, slot = _sorted_corners(s, np.broadcast_to(np.arange(k, dtype=np.int8), s.shape))
     # every piece corner at once: the simplex row and the two sorted corners of its edge, in the
     # order the cases list them (pieces of one case by simplex, case by case)
@@ -129,11 +130,11 @@ def _count_below(s: np.ndarray, lower_end: bool) -> np.ndarray:
 
 #: per number of corners below the plane, the pieces a simplex is cut into: each piece's corners
 #: as edges (i, j) between its corners sorted by the offset from the plane (i below, j above)
-_CASES = {
+_CASES = MappingProxyType({
     2: ((1, (((0, 1), (0, 2)),)), (2, (((0, 2), (1, 2)),))),
     3: ((1, (((0, 1), (0, 2), (0, 3)),)), (3, (((0, 3), (1, 3), (2, 3)),)),
         (2, (((0, 2), (0, 3), (1, 3)), ((0, 2), (1, 3), (1, 2))))),
-}
+})
 
 
 def _piece_edges(below: np.ndarray, dim: int) -> tuple:
@@ -153,7 +154,6 @@ def _piece_edges(below: np.ndarray, dim: int) -> tuple:
     sizes = [r.size for r in rows]
     row = np.repeat(np.concatenate(rows)[:, None], dim, axis=1)
     return (row, np.repeat(np.stack(i), sizes, axis=0), np.repeat(np.stack(j), sizes, axis=0))
-
 
 
 def _sorted_corners(s: np.ndarray, nodes: np.ndarray) -> tuple:
