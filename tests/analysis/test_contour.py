@@ -264,3 +264,31 @@ def test_bad_shapes_and_grid_method():
     q = grid_mesh((4, 4))
     with pytest.raises(OptionError, match="cannot skip NaN"):
         find_interface(q, np.full(q.n_points, np.nan), method="grid")
+
+
+@pytest.mark.parametrize("k", [3, 4])
+def test_lone_first_table_is_a_stable_argsort_of_each_pattern(k):
+    # the marching step orders a cut simplex's corners by one look-up per above-the-level
+    # pattern; each row must be what numpy's stable argsort of "not above" gives (reference: numpy)
+    from phasegauge.analysis._contour import _lone_first
+
+    table = _lone_first(k)
+    for pattern in range(1 << k):
+        above = np.array([(pattern >> j) & 1 for j in range(k)], dtype=bool)
+        assert np.array_equal(table[pattern], np.argsort(~above, kind="stable"))
+
+
+def test_element_sizes_are_kept_and_read_only():
+    # computed once per contour and shared by its readers, so none may change them in place
+    m = grid_mesh((6, 6, 6), kind="hexahedron", jitter=0.2, seed=2)
+    x = m.coordinates
+    c = 0.5 + 2.0 * (0.09 - ((x - 0.5) ** 2).sum(axis=1))
+    contour = find_interface(m, c)
+    sizes = contour.element_sizes
+    assert sizes is contour.element_sizes
+    with pytest.raises(ValueError):
+        sizes[0] = 1.0
+    # the triangle areas, as |cross| / 2 of their corners (reference: numpy's cross product)
+    p = contour.points[contour.elements]
+    expected = 0.5 * np.linalg.norm(np.cross(p[:, 1] - p[:, 0], p[:, 2] - p[:, 0]), axis=1)
+    assert np.array_equal(sizes, expected)

@@ -21,6 +21,7 @@ from __future__ import annotations
 import numpy as np
 
 from ..errors import OptionError
+from ..model._grouping import _bits, _sort_order
 from ..model._numbers import finite_number
 from ..model.contour import Contour
 from ..model.corners import CornerExtremes, cell_gradient, corner_extremes
@@ -61,6 +62,13 @@ def _to_3d(mesh: Mesh, coords: np.ndarray) -> np.ndarray:
     return out
 
 
+def _lone_first(k: int) -> np.ndarray:
+    """Per pattern m of corners above the level (bit j: corner j), the corners ordered as a stable
+    argsort of ``not above`` orders them: those above first, each group in corner order."""
+    above = (np.arange(1 << k)[:, None] >> np.arange(k)) & 1
+    return np.argsort(1 - above, axis=1, kind="stable")
+
+
 def _march_simplices(split: SimplexSplit, level: float, dim: int):
     """Contour elements of the linear field on each simplex.
 
@@ -68,38 +76,39 @@ def _march_simplices(split: SimplexSplit, level: float, dim: int):
     slots (k, dim) into those edges, and the owner cell of each element.
     """
     S = split.simplices
+    k = dim + 1
     v = split.values[S]
-    above = v > level
-    count = above.sum(axis=1)
-    cut = (count > 0) & (count < dim + 1)
-    S, above, count, owner = S[cut], above[cut], count[cut], split.owner[cut]
+    pattern = np.zeros(S.shape[0], dtype=np.int8)  # bit j: corner j above the level
+    count = np.zeros(S.shape[0], dtype=np.int8)
+    for j in range(k):  # column by column: no (n, k) temporaries of counts
+        above = v[:, j] > level
+        pattern |= above.astype(np.int8) << j
+        count += above
+    rows = np.flatnonzero((count > 0) & (count < k))
+    pattern, count, owner = pattern[rows], count[rows], split.owner[rows]
+    # each cut simplex's corners with its lone corner first (the one above, or below, the others),
+    # or with the two above first: a stable argsort of the lone / above marks, by one table look-up
+    lone_below = count == (2 if dim == 2 else 3)
+    order = _lone_first(k)[np.where(lone_below, (1 << k) - 1 - pattern, pattern)]
+    P = S.ravel()[(rows * k)[:, None] + order]
     X = split.coordinates
     edges_list, elem_owner = [], []
     if dim == 2:
-        lone = np.where((count == 1)[:, None], above, ~above)
-        perm = np.argsort(~lone, axis=1, kind="stable")
-        P = np.take_along_axis(S, perm, axis=1)  # lone vertex first
         e = np.stack([P[:, [0, 1]], P[:, [0, 2]]], axis=1)  # (k, 2 vertices, 2 ends)
-        lone_up = (count == 1)
         up = X[P[:, 0]] - 0.5 * (X[P[:, 1]] + X[P[:, 2]])
-        up[~lone_up] *= -1
+        up[lone_below] *= -1
         edges_list.append((e, up))
         elem_owner.append(owner)
     else:
         single = count != 2
-        lone = np.where((count == 1)[:, None], above, ~above)
-        Ss, lone_s = S[single], lone[single]
-        perm = np.argsort(~lone_s, axis=1, kind="stable")
-        P = np.take_along_axis(Ss, perm, axis=1)
-        e = np.stack([P[:, [0, 1]], P[:, [0, 2]], P[:, [0, 3]]], axis=1)
-        up = X[P[:, 0]] - X[P[:, 1:]].mean(axis=1)
-        up[count[single] == 3] *= -1
+        Ps = P[single]
+        e = np.stack([Ps[:, [0, 1]], Ps[:, [0, 2]], Ps[:, [0, 3]]], axis=1)
+        up = X[Ps[:, 0]] - ((X[Ps[:, 1]] + X[Ps[:, 2]]) + X[Ps[:, 3]]) / 3.0  # the mean of the other three
+        up[lone_below[single]] *= -1
         edges_list.append((e, up))
         elem_owner.append(owner[single])
-        Sd, above_d = S[~single], above[~single]
-        perm = np.argsort(~above_d, axis=1, kind="stable")
-        P = np.take_along_axis(Sd, perm, axis=1)  # a, b above; c, d below
-        a, b, c, d = P[:, 0], P[:, 1], P[:, 2], P[:, 3]
+        Pd = P[~single]  # a, b above; c, d below
+        a, b, c, d = Pd[:, 0], Pd[:, 1], Pd[:, 2], Pd[:, 3]
         ac, ad, bd, bc = (np.stack(p, axis=1) for p in ((a, c), (a, d), (b, d), (b, c)))
         up = 0.5 * (X[a] + X[b]) - 0.5 * (X[c] + X[d])
         od = owner[~single]
@@ -125,8 +134,14 @@ def _find_on_simplices(mesh: Mesh, c: np.ndarray, level: float, extremes: Corner
     ends = E.reshape(-1, 2)
     n_vertices = np.int64(split.coordinates.shape[0])
     key = np.minimum(ends[:, 0], ends[:, 1]) * n_vertices + np.maximum(ends[:, 0], ends[:, 1])
-    unique, inverse = np.unique(key, return_inverse=True)  # same order as sorting the edge rows
-    inverse = inverse.ravel()
+    # the distinct edges in increasing key (as sorting the edge rows), each element vertex's edge:
+    # np.unique(key, return_inverse=True), by one packed sort
+    order, key = _sort_order(key, _bits(int(n_vertices) * int(n_vertices)))
+    distinct = np.ones(key.size, dtype=bool)
+    distinct[1:] = key[1:] != key[:-1]
+    unique = key[distinct]
+    inverse = np.empty(key.size, dtype=np.int64)
+    inverse[order] = np.cumsum(distinct) - 1
     X, v = split.coordinates, split.values
     p, q = unique // n_vertices, unique % n_vertices
     t = (level - v[p]) / (v[q] - v[p])

@@ -11,6 +11,7 @@ interpolates its fields along the cut edges (:mod:`._cross_sections` sums the mo
 from __future__ import annotations
 
 from dataclasses import dataclass
+from types import MappingProxyType
 
 import numpy as np
 
@@ -85,67 +86,101 @@ def _plane_pieces(mesh: Mesh, axis: int, position: float, lower_end: bool, cells
     # the offsets from the plane first (one coordinate), the in-plane corners of the crossed
     # simplices only: the same numbers as gathering all corners (centres are corner means)
     s = split.centre_means(mesh.coordinates[:, axis])[nodes] - position
-    below = np.count_nonzero(s <= 0 if lower_end else s < 0, axis=1)
+    below = _count_below(s, lower_end)
     crossed = (below > 0) & (below < dim + 1)
     others = [a for a in range(dim) if a != axis]
-    nodes, parent, s, below = nodes[crossed], parent[crossed], s[crossed], below[crossed]
-    s, nodes = _sorted_corners(s, nodes)
-    X = split.centre_means(mesh.coordinates[:, others])[nodes]
-    nodes = np.where(nodes >= mesh.n_points, nodes - mesh.n_points + first_added, nodes)
-
-    def case(k):
-        # the simplices with k corners below the plane, gathered once for all their edges
-        rows = below == k
-        sk, Xk, Nk = s[rows], X[rows], nodes[rows]
-
-        def edge(i, j):
-            si, sj = sk[:, i], sk[:, j]
-            t = si / (si - sj)
-            Xi = Xk[:, i]
-            return Xi + t[:, None] * (Xk[:, j] - Xi), Nk[:, i], Nk[:, j], t
-
-        return edge, parent[rows]
-
-    (one, p1), (two, p2) = case(1), case(2)
+    rows = np.flatnonzero(crossed)
+    parent, s, below = parent[rows], s[rows], below[rows]
+    k = dim + 1
+    # each crossed simplex's corners in increasing s: the sorted s, and the corner slot each came
+    # from (int8: little to write); the nodes are read through the slots below
+    s, slot = _sorted_corners(s, np.broadcast_to(np.arange(k, dtype=np.int8), s.shape))
+    # every piece corner at once: the simplex row and the two sorted corners of its edge, in the
+    # order the cases list them (pieces of one case by simplex, case by case)
+    row, i, j = _piece_edges(below, dim)
+    first, second = row * k + i, row * k + j  # (n, dim) flat positions in the sorted corner arrays
+    s, slot = s.ravel(), slot.ravel()
+    si = s[first]
+    t = si / (si - s[second])
+    nodes, base = nodes.ravel(), rows[row] * k
+    start, end = nodes[base + slot[first]], nodes[base + slot[second]]
+    X = []  # per in-plane axis, (n, dim): the corners, as the split interpolates them
+    for a in others:
+        column = split.centre_means(mesh.coordinates[:, a])
+        Xi = column[start]
+        X.append(Xi + t * (column[end] - Xi))
+    start = np.where(start >= mesh.n_points, start - mesh.n_points + first_added, start)
+    end = np.where(end >= mesh.n_points, end - mesh.n_points + first_added, end)
     if dim == 2:
-        pieces = [[one(0, 1), one(0, 2)], [two(0, 2), two(1, 2)]]
-        parents = [p1, p2]
+        measures = np.abs(X[0][:, 1] - X[0][:, 0])
     else:
-        three, p3 = case(3)
-        e02, e13 = two(0, 2), two(1, 3)
-        pieces = [[one(0, 1), one(0, 2), one(0, 3)], [three(0, 3), three(1, 3), three(2, 3)],
-                  [e02, two(0, 3), e13], [e02, e13, two(1, 2)]]
-        parents = [p1, p3, p2, p2]
-    # (n, dim) per item of a corner: position in the plane, start node, end node, t
-    X, start, end, t = (np.concatenate([np.stack([corner[item] for corner in piece], axis=1)
-                                        for piece in pieces]) for item in range(4))
-    if dim == 2:
-        measures = np.abs(X[:, 1, 0] - X[:, 0, 0])
-    else:
-        d1 = X[:, 1] - X[:, 0]
-        d2 = X[:, 2] - X[:, 0]
-        measures = 0.5 * np.abs(d1[:, 0] * d2[:, 1] - d1[:, 1] * d2[:, 0])
-    return measures, np.concatenate(parents), start, end, t, centres
+        d1 = [x[:, 1] - x[:, 0] for x in X]
+        d2 = [x[:, 2] - x[:, 0] for x in X]
+        measures = 0.5 * np.abs(d1[0] * d2[1] - d1[1] * d2[0])
+    return measures, parent[row[:, 0]], start, end, t, centres
+
+
+def _count_below(s: np.ndarray, lower_end: bool) -> np.ndarray:
+    """Per simplex, how many corners lie below the plane (s <= 0 with ``lower_end``, else s < 0)."""
+    below = np.zeros(s.shape[0], dtype=np.int8)
+    for j in range(s.shape[1]):  # column by column: faster than a count along the short axis
+        below += s[:, j] <= 0 if lower_end else s[:, j] < 0
+    return below
+
+
+#: per number of corners below the plane, the pieces a simplex is cut into: each piece's corners
+#: as edges (i, j) between its corners sorted by the offset from the plane (i below, j above)
+_CASES = MappingProxyType({
+    2: ((1, (((0, 1), (0, 2)),)), (2, (((0, 2), (1, 2)),))),
+    3: ((1, (((0, 1), (0, 2), (0, 3)),)), (3, (((0, 3), (1, 3), (2, 3)),)),
+        (2, (((0, 2), (0, 3), (1, 3)), ((0, 2), (1, 3), (1, 2))))),
+})
+
+
+def _piece_edges(below: np.ndarray, dim: int) -> tuple:
+    """Simplex row (n, dim) and sorted corners i, j (n, dim) of every piece corner.
+
+    Pieces are listed case by case (a triangle for one corner below, for three, then the two
+    triangles of a quadrilateral for two, each over all its simplices in turn), every case
+    over its simplices in order.
+    """
+    rows, i, j = [], [], []
+    for count, pieces in _CASES[dim]:
+        chosen = np.flatnonzero(below == count)
+        for piece in pieces:
+            rows.append(chosen)
+            i.append(np.array([a for a, _ in piece]))
+            j.append(np.array([b for _, b in piece]))
+    sizes = [r.size for r in rows]
+    row = np.repeat(np.concatenate(rows)[:, None], dim, axis=1)
+    return (row, np.repeat(np.stack(i), sizes, axis=0), np.repeat(np.stack(j), sizes, axis=0))
 
 
 def _sorted_corners(s: np.ndarray, nodes: np.ndarray) -> tuple:
     """Each simplex's corners in increasing ``s``, ties in corner order (as a stable argsort).
 
-    By adjacent exchanges (bubble sort: stable, and a sorting network for these few columns),
-    the nodes moving with their ``s``: no per-row argsort and gathers.
+    By ranks: a corner's place is the number of corners before it (lower ``s``, or equal and
+    earlier), from one comparison per pair of columns; each column is then written to its place,
+    the nodes with their ``s``: no per-row argsort and gathers (2.4x faster than exchanges on
+    65 000 tetrahedra).
     """
-    k = s.shape[1]
-    s, nodes = [s[:, j] for j in range(k)], [nodes[:, j] for j in range(k)]
-    for top in range(k - 1, 0, -1):
-        for j in range(top):
-            swap = s[j] > s[j + 1]
-            if not swap.any():
-                continue
-            for column in (s, nodes):
-                low = np.where(swap, column[j + 1], column[j])
-                column[j + 1] = np.where(swap, column[j], column[j + 1])
-                column[j] = low
-    return np.stack(s, axis=1), np.stack(nodes, axis=1)
+    n, k = s.shape
+    columns = [s[:, j] for j in range(k)]
+    rank = [np.zeros(n, dtype=np.int64) for _ in range(k)]
+    for a in range(k):
+        for b in range(a + 1, k):
+            before = columns[b] < columns[a]  # b first only when strictly lower: ties stay in order
+            rank[a] += before
+            rank[b] += ~before
+    sorted_s = np.empty((n, k), dtype=s.dtype)
+    sorted_nodes = np.empty((n, k), dtype=nodes.dtype)
+    flat_s, flat_nodes = sorted_s.reshape(-1), sorted_nodes.reshape(-1)
+    base = np.arange(0, n * k, k)
+    for j in range(k):
+        place = base + rank[j]
+        flat_s[place] = columns[j]
+        flat_nodes[place] = nodes[:, j]
+    return sorted_s, sorted_nodes
 
 
 def _layer_pieces(mesh: Mesh, axis: int, position: float, lower_end: bool, cells: np.ndarray,

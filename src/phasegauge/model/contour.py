@@ -7,6 +7,7 @@ contour files of :mod:`phasegauge.io`, drawn by the report.
 from __future__ import annotations
 
 from dataclasses import dataclass
+from functools import cached_property
 
 import numpy as np
 
@@ -44,15 +45,22 @@ class Contour:
         """Number of segments (2D) or triangles (3D)."""
         return int(self.elements.shape[0])
 
-    @property
+    @cached_property
     def element_sizes(self) -> np.ndarray:
-        """Segment lengths (2D) or triangle areas (3D), shape (k,), in length units (squared)."""
+        """Segment lengths (2D) or triangle areas (3D), shape (k,), in length units (squared).
+
+        Computed once per contour (a step reads them three times) and kept read-only.
+        """
         if self.n_elements == 0:
-            return np.zeros(0)
-        p = self.points[self.elements]
-        if self.dimension == 2:
-            return np.linalg.norm(p[:, 1] - p[:, 0], axis=1)
-        return 0.5 * np.linalg.norm(np.cross(p[:, 1] - p[:, 0], p[:, 2] - p[:, 0]), axis=1)
+            sizes = np.zeros(0)
+        else:
+            p = self.points[self.elements]
+            if self.dimension == 2:
+                sizes = np.linalg.norm(p[:, 1] - p[:, 0], axis=1)
+            else:
+                sizes = 0.5 * np.linalg.norm(np.cross(p[:, 1] - p[:, 0], p[:, 2] - p[:, 0]), axis=1)
+        sizes.flags.writeable = False
+        return sizes
 
     @property
     def size(self) -> float:
