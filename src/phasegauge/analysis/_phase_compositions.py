@@ -116,8 +116,7 @@ def interface_distance(mesh, c_cell, contour, *, level=0.5, reach=np.inf, measur
     if rows.size:
         dist[rows] = np.abs(_signed_distance(points[rows], c[rows], geometry, contour.plane_axes, level,
                                              bound=reach, compact=True))
-    far = np.flatnonzero(~np.isfinite(dist))
-    dist[far] = 2.0 * reach
+    np.copyto(dist, 2.0 * reach, where=~np.isfinite(dist))
     np.negative(dist, out=dist, where=~positive)
     return dist
 
