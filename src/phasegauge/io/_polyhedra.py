@@ -215,8 +215,15 @@ class PolyhedralRead:
                 return
 
     def keep_split(self, mesh) -> None:
-        """Keep the split with ``mesh`` (for the next steps of a series)."""
-        mesh.memo(self._KEY, lambda: (self.signature, self.split))
+        """Keep the split with ``mesh`` (for the next steps of a series), and give the mesh the
+        tetrahedra's face neighbours when its cells are the split's tetrahedra themselves."""
+        from ..model._faces import SPLIT_FACES
+
+        split = self.split
+        mesh.memo(self._KEY, lambda: (self.signature, split))
+        if (split.neighbours is not None and len(mesh.blocks) == 1
+                and mesh.blocks[0].connectivity is split.tetra):
+            mesh.memo(SPLIT_FACES, lambda: split.neighbours)
 
     @property
     def split(self):

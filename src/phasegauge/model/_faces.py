@@ -18,8 +18,8 @@ from .cells import EDGES, FACES
 if TYPE_CHECKING:
     from .mesh import CellBlock, Mesh
 
-__all__ = ["local_faces", "face_rows", "row_owners", "face_topology", "grid_face_numbers", "grouped_faces",
-           "unique_edges"]
+__all__ = ["local_faces", "face_rows", "row_owners", "face_topology", "split_face_topology", "SPLIT_FACES",
+           "grid_face_numbers", "grouped_faces", "unique_edges"]
 
 
 def local_faces(block: CellBlock) -> list:
@@ -68,8 +68,13 @@ def face_topology(mesh: Mesh) -> dict:
     """Face grouping, done once: what :attr:`face_pairs`, :attr:`boundary_faces` and the
     face numbers of :meth:`face_numbers` are read from (the grouping itself is not kept).
 
-    Faces are numbered in the lexicographic order of their sorted corners.
+    Faces are numbered in the lexicographic order of their sorted corners. A mesh whose cells a
+    reader split into tetrahedra it already knows the face neighbours of (``mesh.memo`` entry
+    ``"split_faces"``: see :func:`split_face_topology`) is not grouped again.
     """
+    given = mesh.memo(SPLIT_FACES, lambda: None, keep=False)
+    if given is not None:
+        return split_face_topology(mesh, given)
     columns, row_starts = face_rows(mesh)
     order, starts = group_columns(list(columns))
     m = order.size
@@ -115,6 +120,36 @@ def face_topology(mesh: Mesh) -> dict:
             numbers[b] = np.ascontiguousarray(ids.T)
     return {"pairs": pairs, "boundary": boundary, "numbers": numbers, "count": int(starts.size),
             "crowded": int(np.count_nonzero(sizes > 2)), "shared_faces": shared_faces}
+
+
+#: ``mesh.memo`` key of the face neighbours a reader gives with the tetrahedra it split cells into
+SPLIT_FACES = "split_faces"
+
+
+def split_face_topology(mesh: Mesh, neighbours: np.ndarray) -> dict:
+    """:func:`face_topology` of a mesh of one block of tetrahedra from their known face neighbours.
+
+    ``neighbours`` (n_cells, 4): each row the neighbours across the tetrahedron's faces, higher
+    numbers first, then lower, each increasing, -1 at the end for a face on the boundary; a
+    boundary face is always the face opposite the tetrahedron's last corner (a split's cell
+    centre). The same pairs, boundary faces and counts as grouping the faces.
+    """
+    n = mesh.n_cells
+    own = np.arange(n, dtype=neighbours.dtype)[:, None]
+    higher = neighbours > own
+    first = np.repeat(np.arange(n, dtype=np.int32 if n < 2 ** 24 else np.int64), higher.sum(axis=1))
+    pairs = np.empty((first.size, 2), dtype=first.dtype)
+    pairs[:, 0] = first
+    pairs[:, 1] = neighbours[higher]  # row after row, increasing in each row: sorted pairs
+    del first, higher
+    lone = np.flatnonzero(neighbours[:, -1] < 0).astype(np.int64)
+    tetra = mesh.blocks[0].connectivity
+    corners = np.full((lone.size, 4), -1, dtype=np.int64)
+    corners[:, 1:] = sort_small_rows(tetra[lone, :3])
+    order, _ = group_columns([corners[:, j] for j in range(1, 4)])
+    boundary = (corners[order], lone[order])
+    return {"pairs": pairs, "boundary": boundary, "numbers": [None], "count": int(pairs.shape[0] + lone.size),
+            "crowded": 0, "shared_faces": int(pairs.shape[0])}
 
 
 def grid_face_numbers(mesh: Mesh) -> list | None:
