@@ -26,6 +26,19 @@ def _grid_order(mesh: Mesh) -> np.ndarray:
     return grid.cell_order.reshape(grid.cell_shape)
 
 
+def _local_band_pairs(cells: np.ndarray, neighbours: np.ndarray, band_local: np.ndarray) -> np.ndarray:
+    """Face pairs of the near cells with at least one band cell, from their local neighbour rows:
+    the pairs of ``mesh.face_pairs`` between near cells, in the same (sorted) order."""
+    k, width = neighbours.shape
+    rows = np.repeat(np.arange(k), width)
+    cols = neighbours.ravel()
+    keep = cols < k
+    rows, cols = rows[keep], cols[keep]
+    keep = (rows < cols) & (band_local[rows] | band_local[cols])
+    # each row's higher neighbours come first, increasing (the neighbour table's order)
+    return np.stack([cells[rows[keep]], cells[cols[keep]]], axis=1)
+
+
 def _band_face_pairs(mesh: Mesh, member: np.ndarray, band: np.ndarray) -> np.ndarray:
     """Face pairs of member cells with at least one band cell; from the cell array on regular grids."""
     grid = mesh.regular_grid
@@ -133,15 +146,22 @@ def share_band(label: np.ndarray, c: np.ndarray, neighbours: np.ndarray, extra: 
 
 
 def finish_far_band(mesh: Mesh, cells: np.ndarray, label: np.ndarray, shared: np.ndarray, root: np.ndarray,
-                     links) -> tuple[np.ndarray, np.ndarray]:
+                     links, neighbours: np.ndarray | None = None) -> tuple[np.ndarray, np.ndarray]:
     """Band cells beyond the rings (a wide plateau): each goes to the nearest assigned cell along
-    centroid distances, over the mesh-wide band graph; returns the local ``shared`` and ``root``."""
+    centroid distances, over the mesh-wide band graph; returns the local ``shared`` and ``root``.
+
+    ``neighbours``: the near cells' face neighbours in local numbers (as :func:`share_band`); the
+    band's face pairs are then read from them rather than from all of ``mesh.face_pairs``.
+    """
     n = mesh.n_cells
     member = np.zeros(n, dtype=bool)
     member[cells] = True
     band = np.zeros(n, dtype=bool)
     band[cells[label < 0]] = True
-    pairs = _band_face_pairs(mesh, member, band)
+    if neighbours is not None and mesh.regular_grid is None:
+        pairs = _local_band_pairs(cells, neighbours, label < 0)
+    else:
+        pairs = _band_face_pairs(mesh, member, band)
     extra_pairs = np.concatenate([p for p, _, _ in links]) if links else np.empty((0, 2), np.int64)
     if extra_pairs.size:
         keep = member[extra_pairs[:, 0]] & member[extra_pairs[:, 1]]
