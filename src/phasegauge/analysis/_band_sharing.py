@@ -26,6 +26,19 @@ def _grid_order(mesh: Mesh) -> np.ndarray:
     return grid.cell_order.reshape(grid.cell_shape)
 
 
+def _near_band_pairs(neighbours: np.ndarray, band_local: np.ndarray) -> np.ndarray:
+    """Face pairs (local numbers) of the near cells with at least one band cell, from their local
+    neighbour rows: the pairs of ``mesh.face_pairs`` between near cells, in the same (sorted) order."""
+    k, width = neighbours.shape
+    rows = np.repeat(np.arange(k), width)
+    cols = neighbours.ravel()
+    keep = cols < k
+    rows, cols = rows[keep], cols[keep]
+    keep = (rows < cols) & (band_local[rows] | band_local[cols])
+    # each row's higher neighbours come first, increasing (the neighbour table's order)
+    return np.stack([rows[keep], cols[keep]], axis=1)
+
+
 def _band_face_pairs(mesh: Mesh, member: np.ndarray, band: np.ndarray) -> np.ndarray:
     """Face pairs of member cells with at least one band cell; from the cell array on regular grids."""
     grid = mesh.regular_grid
@@ -133,16 +146,31 @@ def share_band(label: np.ndarray, c: np.ndarray, neighbours: np.ndarray, extra: 
 
 
 def finish_far_band(mesh: Mesh, cells: np.ndarray, label: np.ndarray, shared: np.ndarray, root: np.ndarray,
-                     links) -> tuple[np.ndarray, np.ndarray]:
+                     links, neighbours: np.ndarray | None = None) -> tuple[np.ndarray, np.ndarray]:
     """Band cells beyond the rings (a wide plateau): each goes to the nearest assigned cell along
-    centroid distances, over the mesh-wide band graph; returns the local ``shared`` and ``root``."""
+    centroid distances, over the mesh-wide band graph; returns the local ``shared`` and ``root``.
+
+    ``neighbours``: the near cells' face neighbours in local numbers (as :func:`share_band`); the
+    band's face pairs are then read from them rather than from all of ``mesh.face_pairs``.
+    """
+    extra_pairs = np.concatenate([p for p, _, _ in links]) if links else np.empty((0, 2), np.int64)
+    if neighbours is not None and mesh.regular_grid is None:  # all in the near cells' local numbers
+        band_local = label < 0
+        pairs = _near_band_pairs(neighbours, band_local)
+        if extra_pairs.size:
+            at = np.minimum(np.searchsorted(cells, extra_pairs), cells.size - 1)
+            keep = (cells[at] == extra_pairs).all(axis=1)
+            keep &= band_local[at[:, 0]] | band_local[at[:, 1]]
+            pairs = np.concatenate([pairs, at[keep]])
+        shared, root = shared.copy(), root.copy()
+        _finish_band_by_distance(mesh, pairs, shared, root, extra_pairs, cells=cells)
+        return shared, root
     n = mesh.n_cells
     member = np.zeros(n, dtype=bool)
     member[cells] = True
     band = np.zeros(n, dtype=bool)
     band[cells[label < 0]] = True
     pairs = _band_face_pairs(mesh, member, band)
-    extra_pairs = np.concatenate([p for p, _, _ in links]) if links else np.empty((0, 2), np.int64)
     if extra_pairs.size:
         keep = member[extra_pairs[:, 0]] & member[extra_pairs[:, 1]]
         pairs = np.concatenate([pairs, extra_pairs[keep & (band[extra_pairs[:, 0]] | band[extra_pairs[:, 1]])]])
@@ -154,16 +182,21 @@ def finish_far_band(mesh: Mesh, cells: np.ndarray, label: np.ndarray, shared: np
     return full_shared[cells], np.searchsorted(cells, source_cell[cells])
 
 
-def _finish_band_by_distance(mesh, pairs, shared, source_cell, extra_pairs):
-    """Give the band cells still unassigned to the nearest assigned cell (multi-source Dijkstra), in place."""
-    length = _face_lengths(mesh, pairs)
+def _finish_band_by_distance(mesh, pairs, shared, source_cell, extra_pairs, cells=None):
+    """Give the band cells still unassigned to the nearest assigned cell (multi-source Dijkstra), in place.
+
+    ``pairs``, ``shared`` and ``source_cell`` in mesh numbers, or in the local numbers of ``cells``.
+    """
+    on_mesh = pairs if cells is None else cells[pairs]
+    length = _face_lengths(mesh, on_mesh)
     if extra_pairs.size:  # across a periodic boundary the centroid distance is meaningless: use h
-        key = np.sort(pairs, axis=1) @ np.array([mesh.n_cells, 1])
+        key = np.sort(on_mesh, axis=1) @ np.array([mesh.n_cells, 1])
         across = np.isin(key, np.sort(extra_pairs, axis=1) @ np.array([mesh.n_cells, 1]))
         h = mesh.cell_sizes
-        length[across] = 0.5 * (h[pairs[across, 0]] + h[pairs[across, 1]])
+        length[across] = 0.5 * (h[on_mesh[across, 0]] + h[on_mesh[across, 1]])
+    del on_mesh
     length = np.maximum(length, 1e-300)
-    used = np.zeros(mesh.n_cells, dtype=bool)
+    used = np.zeros(mesh.n_cells if cells is None else cells.size, dtype=bool)
     used[pairs.ravel()] = True
     nodes = np.flatnonzero(used)
     local = (np.cumsum(used) - 1)[pairs]

@@ -12,6 +12,7 @@ from scipy import sparse
 from scipy.sparse import csgraph
 from scipy.spatial import cKDTree
 
+from ..model._faces import SPLIT_FACES
 from ..model.mesh import Mesh
 
 __all__ = ["periodic_pairs", "neighbour_table", "pieces", "join_periodic"]
@@ -65,6 +66,10 @@ def _build_neighbour_table(mesh: Mesh) -> np.ndarray:
     n = mesh.n_cells
     dtype = np.int32 if n < np.iinfo(np.int32).max else np.int64
     grid = mesh.regular_grid
+    given = mesh.memo(SPLIT_FACES, lambda: None, keep=False)  # a reader's split: rows in this order
+    if given is not None:
+        width = max(int(np.count_nonzero(given >= 0, axis=1).max(initial=0)), 1)
+        return given if width == given.shape[1] else np.ascontiguousarray(given[:, :width])
     if grid is not None:
         order = grid.cell_order.astype(dtype, copy=False).reshape(grid.cell_shape)
         dim = order.ndim

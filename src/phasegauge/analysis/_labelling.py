@@ -171,7 +171,8 @@ class _NearCells:
 def _near_cells(mesh: Mesh, c0: np.ndarray, *, level: float, band_floor: float) -> _NearCells:
     cells = np.flatnonzero(c0 > band_floor)
     k = cells.size
-    local = np.full(mesh.n_cells + 1, k, dtype=np.int64)  # entry n_cells (index -1): "no cell"
+    # entry n_cells (index -1): "no cell"; int32 where it fits (the local neighbour rows take its type)
+    local = np.full(mesh.n_cells + 1, k, dtype=np.int32 if k < 2 ** 31 - 1 else np.int64)
     local[cells] = np.arange(k)
     c_near = c0[cells]
     core = c_near > level
@@ -203,7 +204,7 @@ def _share(mesh: Mesh, near: _NearCells, label: np.ndarray, links, local_links) 
     extra = extra[(extra < near.k).all(axis=1)]
     shared, root, far = share_band(label, near.c, near.neighbours, extra)
     if far:  # a wide plateau: the rest by distance along the centroids
-        shared, root = finish_far_band(mesh, near.cells, label, shared, root, links)
+        shared, root = finish_far_band(mesh, near.cells, label, shared, root, links, near.neighbours)
     return shared, root
 
 

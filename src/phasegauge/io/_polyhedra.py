@@ -30,7 +30,7 @@ import io
 import mmap
 import re
 import warnings
-from functools import cached_property
+from functools import cached_property, partial
 
 import numpy as np
 
@@ -111,20 +111,22 @@ def _cell_array(cell_array) -> tuple[np.ndarray, np.ndarray]:
             vtk_to_numpy(cell_array.GetOffsetsArray()).astype(np.int64, copy=False))
 
 
-def _polyhedron_faces(grid, cells: np.ndarray, path: str = ""):
-    """Face stream of the polyhedra ``cells``: corners, offsets and the polyhedron (0..) of each face.
-
-    Read from VTK's face arrays of VTK 9.4 and later (``GetPolyhedronFaces``,
-    ``GetPolyhedronFaceLocations``, whatever the file's format version).
-    """
+def _face_arrays(grid, path: str = "") -> tuple:
+    """VTK's face arrays of the polyhedra (VTK 9.4 and later: ``GetPolyhedronFaces``,
+    ``GetPolyhedronFaceLocations``, whatever the file's format version): face corners and
+    offsets, each cell's faces and their offsets."""
     if not hasattr(grid, "GetPolyhedronFaceLocations"):
         import vtkmodules
 
         raise UnreadableFileError(f"reading polyhedra needs VTK 9.4 or later (found {vtkmodules.__version__})",
                                   where=path, fix="install a newer VTK: pip install 'vtk>=9.4'")
+    return _cell_array(grid.GetPolyhedronFaces()) + _cell_array(grid.GetPolyhedronFaceLocations())
 
-    face_conn, face_offs = _cell_array(grid.GetPolyhedronFaces())
-    loc_conn, loc_offs = _cell_array(grid.GetPolyhedronFaceLocations())
+
+def _polyhedron_faces(face_arrays: tuple, cells: np.ndarray):
+    """Face stream of the polyhedra ``cells``: corners, offsets and the polyhedron (0..) of each face,
+    from VTK's face arrays (:func:`_face_arrays`)."""
+    face_conn, face_offs, loc_conn, loc_offs = face_arrays
     per_cell = np.diff(loc_offs)[cells]
     first = loc_offs[cells]
     faces = np.repeat(first - np.concatenate([[0], np.cumsum(per_cell)[:-1]]), per_cell) + np.arange(per_cell.sum())
@@ -149,11 +151,14 @@ def read_polyhedral(path: str):
     conn, offs = _cell_array(grid.GetCells())
     sizes = np.diff(offs)
     blocks, rows_of = [], []  # kept cells: (meshio type, connectivity), input rows
-    streams = []  # cells split with the polyhedra: (face points, face offsets, face cell), input rows
+    # cells split with the polyhedra: (how to make their face stream, input rows); the streams are
+    # made only if the split is (a kept one of the same arrays needs none)
+    streams = []
+    face_arrays = _face_arrays(grid, path) if np.any(types == VTK_POLYHEDRON) else ()
     for t in np.unique(types):
         rows_t = np.flatnonzero(types == t)
         if t == VTK_POLYHEDRON:
-            streams.append((_polyhedron_faces(grid, rows_t, path), rows_t))
+            streams.append((partial(_polyhedron_faces, face_arrays, rows_t), rows_t))
             continue
         name = vtk_common.vtk_to_meshio_type.get(int(t))
         if name is None:
@@ -165,7 +170,7 @@ def read_polyhedral(path: str):
             linear = LINEAR_CORNERS.get(str(name), (str(name), None))
             if linear[0] in _QUAD_FACED:
                 local = cells if linear[1] is None else cells[:, linear[1]]
-                streams.append((cell_face_stream(linear[0], local), rows))
+                streams.append((partial(cell_face_stream, linear[0], local), rows))
                 continue
             blocks.append((name, cells))
             rows_of.append(rows)
@@ -174,7 +179,9 @@ def read_polyhedral(path: str):
     point_data = {name: np.asarray(grid.point_data[name]) for name in grid.point_data.keys()}
     cell_data = {name: np.asarray(grid.cell_data[name]) for name in grid.cell_data.keys()}
     field_data = {name: np.asarray(grid.field_data[name]) for name in grid.field_data.keys()}
-    return PolyhedralRead(path, points, blocks, rows_of, _join_streams(streams), point_data, cell_data, field_data,
+    # what the streams are made from: equal arrays split alike
+    made_from = (types, conn, offs) + face_arrays
+    return PolyhedralRead(path, points, blocks, rows_of, streams, made_from, point_data, cell_data, field_data,
                           int(np.count_nonzero(types == VTK_POLYHEDRON)))
 
 
@@ -190,18 +197,21 @@ class PolyhedralRead:
 
     _KEY = "polyhedra_split"
 
-    def __init__(self, path, points, blocks, rows_of, stream, point_data, cell_data, field_data, n_poly):
+    def __init__(self, path, points, blocks, rows_of, streams, made_from, point_data, cell_data, field_data, n_poly):
         self.path, self._points, self._blocks, self._rows_of = path, points, blocks, rows_of
-        self._stream, self._point_data, self._cell_data = stream, point_data, cell_data
+        self._streams, self._made_from = streams, made_from
+        self._rows = np.concatenate([rows for _, rows in streams]).astype(np.int64)  # input rows of the split cells
+        self._point_data, self._cell_data = point_data, cell_data
         self.field_data, self.n_poly = field_data, n_poly
         self._split = None
 
     @cached_property
     def signature(self) -> str:
-        """Hash of the points and the split cells' faces: equal signatures split alike."""
+        """Hash of the points and of the cell and face arrays the split cells' faces are made from:
+        equal signatures split alike."""
         h = hashlib.sha256()
         h.update(np.ascontiguousarray(self._points))
-        for array in self._stream:
+        for array in self._made_from:
             h.update(np.ascontiguousarray(array))
         return h.hexdigest()[:32]
 
@@ -215,24 +225,32 @@ class PolyhedralRead:
                 return
 
     def keep_split(self, mesh) -> None:
-        """Keep the split with ``mesh`` (for the next steps of a series)."""
-        mesh.memo(self._KEY, lambda: (self.signature, self.split))
+        """Keep the split with ``mesh`` (for the next steps of a series), and give the mesh the
+        tetrahedra's face neighbours when its cells are the split's tetrahedra themselves."""
+        from ..model._faces import SPLIT_FACES
+
+        split = self.split
+        mesh.memo(self._KEY, lambda: (self.signature, split))
+        if (split.neighbours is not None and len(mesh.blocks) == 1
+                and mesh.blocks[0].connectivity is split.tetra):
+            mesh.memo(SPLIT_FACES, lambda: split.neighbours)
 
     @property
     def split(self):
         from ..model.polyhedra import split_polyhedra
 
         if self._split is None:
-            face_points, face_offsets, face_cell, rows = self._stream
-            self._split = split_polyhedra(self._points, face_points, face_offsets, face_cell, rows.size,
-                                          where=self.path, cell_ids=rows)
+            self.signature  # noqa: B018  (hashed from the arrays, not the streams)
+            face_points, face_offsets, face_cell = _join_streams([(make(), rows) for make, rows in self._streams])
+            self._split = split_polyhedra(self._points, face_points, face_offsets, face_cell, self._rows.size,
+                                          where=self.path, cell_ids=self._rows)
             self._drop_faces()
         return self._split
 
     def _drop_faces(self) -> None:
-        """Free the face stream once split (its hash kept as :attr:`signature`): 12 bytes a face corner."""
-        self.signature  # noqa: B018  (hashed before the faces go)
-        self._stream = (None, None, None, self._stream[3])
+        """Let the cell and face arrays go (hashed as :attr:`signature`) once split or matched."""
+        self.signature  # noqa: B018  (hashed before the arrays go)
+        self._streams = self._made_from = ()
 
     def __getattr__(self, name):
         if name.startswith("_"):
@@ -246,7 +264,7 @@ class PolyhedralRead:
             warnings.warn(MeshWarning(f"{split.inverted_tetra} tetrahedra of the polyhedra's split have negative "
                                       "volume (cells not star-shaped from their corner mean)", where=path),
                           stacklevel=3)
-        rows = self._stream[3]
+        rows = self._rows
         blocks = self._blocks + [("tetra", split.tetra)]
         point_data, points = dict(self._point_data), self._points
         if split.n_centres:
@@ -278,15 +296,13 @@ class PolyhedralRead:
 
 def _join_streams(streams: list):
     """One face stream of every split cell (cells numbered 0.. in the order of ``streams``)."""
-    points, offsets, cells, rows = [], [], [], []
+    points, offsets, cells = [], [], []
     base, n_cells = 0, 0
     for (face_points, face_offsets, face_cell), source in streams:
         points.append(face_points)
         offsets.append(face_offsets[:-1] + base)
         cells.append(face_cell + n_cells)
-        rows.append(source)
         base += int(face_offsets[-1])
         n_cells += int(source.size)
     offsets.append(np.array([base], dtype=np.int64))
-    return (np.concatenate(points), np.concatenate(offsets), np.concatenate(cells),
-            np.concatenate(rows).astype(np.int64))
+    return np.concatenate(points), np.concatenate(offsets), np.concatenate(cells)

@@ -18,8 +18,8 @@ from .cells import EDGES, FACES
 if TYPE_CHECKING:
     from .mesh import CellBlock, Mesh
 
-__all__ = ["local_faces", "face_rows", "row_owners", "face_topology", "grid_face_numbers", "grouped_faces",
-           "unique_edges"]
+__all__ = ["local_faces", "face_rows", "row_owners", "face_topology", "face_pairs", "split_face_topology", "SPLIT_FACES",
+           "grid_face_numbers", "grouped_faces", "unique_edges", "cell_adjacency"]
 
 
 def local_faces(block: CellBlock) -> list:
@@ -68,8 +68,13 @@ def face_topology(mesh: Mesh) -> dict:
     """Face grouping, done once: what :attr:`face_pairs`, :attr:`boundary_faces` and the
     face numbers of :meth:`face_numbers` are read from (the grouping itself is not kept).
 
-    Faces are numbered in the lexicographic order of their sorted corners.
+    Faces are numbered in the lexicographic order of their sorted corners. A mesh whose cells a
+    reader split into tetrahedra it already knows the face neighbours of (``mesh.memo`` entry
+    ``"split_faces"``: see :func:`split_face_topology`) is not grouped again.
     """
+    given = mesh.memo(SPLIT_FACES, lambda: None, keep=False)
+    if given is not None:
+        return split_face_topology(mesh, given)
     columns, row_starts = face_rows(mesh)
     order, starts = group_columns(list(columns))
     m = order.size
@@ -113,8 +118,67 @@ def face_topology(mesh: Mesh) -> dict:
             n, local = len(mesh.blocks[b]), len(local_faces(mesh.blocks[b]))
             ids = group[row_starts[b]:row_starts[b] + local * n].reshape(local, n)
             numbers[b] = np.ascontiguousarray(ids.T)
-    return {"pairs": pairs, "boundary": boundary, "numbers": numbers, "count": int(starts.size),
-            "crowded": int(np.count_nonzero(sizes > 2)), "shared_faces": shared_faces}
+    return {"pairs": pairs, "pair_count": int(pairs.shape[0]), "boundary": boundary, "numbers": numbers,
+            "count": int(starts.size), "crowded": int(np.count_nonzero(sizes > 2)), "shared_faces": shared_faces}
+
+
+#: ``mesh.memo`` key of the face neighbours a reader gives with the tetrahedra it split cells into
+SPLIT_FACES = "split_faces"
+
+
+def cell_adjacency(mesh: Mesh, kind: str):
+    """:meth:`Mesh.adjacency`: sparse symmetric cell adjacency through faces or points."""
+    from scipy import sparse
+
+    if kind == "face":
+        p = mesh.face_pairs
+        data = np.ones(2 * len(p))
+        i = np.concatenate([p[:, 0], p[:, 1]])
+        j = np.concatenate([p[:, 1], p[:, 0]])
+        return sparse.csr_matrix((data, (i, j)), shape=(mesh.n_cells, mesh.n_cells))
+    if kind == "point":
+        a = mesh.incidence
+        m = (a @ a.T).tocsr()
+        m.setdiag(0)
+        m.eliminate_zeros()
+        m.data[:] = 1.0
+        return m
+    raise ValueError(f"adjacency kind must be 'face' or 'point', not {kind!r}")
+
+
+def split_face_topology(mesh: Mesh, neighbours: np.ndarray) -> dict:
+    """:func:`face_topology` of a mesh of one block of tetrahedra from their known face neighbours.
+
+    ``neighbours`` (n_cells, 4): each row the neighbours across the tetrahedron's faces, higher
+    numbers first, then lower, each increasing, -1 at the end for a face on the boundary; a
+    boundary face is always the face opposite the tetrahedron's last corner (a split's cell
+    centre). The same pairs, boundary faces and counts as grouping the faces.
+    """
+    n_pairs = int(np.count_nonzero(neighbours >= 0)) // 2
+    lone = np.flatnonzero(neighbours[:, -1] < 0).astype(np.int64)
+    tetra = mesh.blocks[0].connectivity
+    corners = np.full((lone.size, 4), -1, dtype=np.int64)
+    corners[:, 1:] = sort_small_rows(tetra[lone, :3])
+    order, _ = group_columns([corners[:, j] for j in range(1, 4)])
+    boundary = (corners[order], lone[order])
+    # the pairs are not kept (8 bytes a pair): :func:`face_pairs` reads them from the neighbours
+    return {"pairs": None, "pair_count": n_pairs, "boundary": boundary, "numbers": [None],
+            "count": n_pairs + int(lone.size), "crowded": 0, "shared_faces": n_pairs}
+
+
+def face_pairs(mesh: Mesh) -> np.ndarray:
+    """:attr:`Mesh.face_pairs`: the face topology's pairs, or read from a split's face neighbours."""
+    pairs = mesh._face_topology["pairs"]
+    if pairs is not None:
+        return pairs
+    neighbours = mesh.memo(SPLIT_FACES, lambda: None, keep=False)
+    n = mesh.n_cells
+    higher = neighbours > np.arange(n, dtype=neighbours.dtype)[:, None]
+    first = np.repeat(np.arange(n, dtype=np.int32 if n < 2 ** 24 else np.int64), higher.sum(axis=1))
+    pairs = np.empty((first.size, 2), dtype=first.dtype)
+    pairs[:, 0] = first
+    pairs[:, 1] = neighbours[higher]  # row after row, increasing in each row: sorted pairs
+    return pairs
 
 
 def grid_face_numbers(mesh: Mesh) -> list | None:

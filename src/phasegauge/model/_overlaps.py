@@ -63,7 +63,7 @@ def _overlaps(mesh) -> dict:
     # two simplices with the same corners have the same faces: each face is then crowded, or the two
     # cells share every face (their pair is seen more than once); neither, and no simplex repeats
     # (the corner sort below is skipped, the costliest part on a clean mesh)
-    repeats_possible = regular or crowded or topology["shared_faces"] != topology["pairs"].shape[0]
+    repeats_possible = regular or crowded or topology["shared_faces"] != topology["pair_count"]
     duplicates = 0
     for block in mesh.blocks:
         if len(block) < 2 or (not repeats_possible and block.cell_type in _SIMPLICES):

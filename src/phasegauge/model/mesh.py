@@ -25,7 +25,8 @@ import numpy as np
 
 from ..errors import UnsupportedMeshError
 from ._conversions import corner_sums, linear_point_values
-from ._faces import face_rows, face_topology, grid_face_numbers, grouped_faces, local_faces, row_owners, unique_edges
+from ._faces import (cell_adjacency, face_pairs, face_rows, face_topology, grid_face_numbers, grouped_faces,
+                     local_faces, row_owners, unique_edges)
 from ._geometry import cell_geometry
 from ._grouping import index_dtype
 from ._regular_grid import RegularGrid, find_regular_grid
@@ -454,9 +455,10 @@ class Mesh:
         """Pairs of cells sharing a face (3D) or an edge (2D), shape (n_pairs, 2), sorted.
 
         Faces are matched by their corner points, so cells must share points
-        (a conforming mesh); faces with hanging nodes do not connect.
+        (a conforming mesh); faces with hanging nodes do not connect. Read from the
+        face neighbours a reader gave with the cells it split, when it did (not kept).
         """
-        return self._face_topology["pairs"]
+        return face_pairs(self)
 
     @property
     def boundary_faces(self) -> tuple:
@@ -477,22 +479,7 @@ class Mesh:
             ``face``: cells sharing an edge (2D) or a face (3D);
             ``point``: cells sharing at least one point.
         """
-        from scipy import sparse
-
-        if kind == "face":
-            p = self.face_pairs
-            data = np.ones(2 * len(p))
-            i = np.concatenate([p[:, 0], p[:, 1]])
-            j = np.concatenate([p[:, 1], p[:, 0]])
-            return sparse.csr_matrix((data, (i, j)), shape=(self.n_cells, self.n_cells))
-        if kind == "point":
-            a = self.incidence
-            m = (a @ a.T).tocsr()
-            m.setdiag(0)
-            m.eliminate_zeros()
-            m.data[:] = 1.0
-            return m
-        raise ValueError(f"adjacency kind must be 'face' or 'point', not {kind!r}")
+        return cell_adjacency(self, kind)
 
     @cached_property
     def edges(self) -> np.ndarray:

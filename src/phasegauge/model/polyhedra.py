@@ -40,6 +40,7 @@ import numpy as np
 
 from ..errors import UnsupportedMeshError
 from ._grouping import group_columns, index_dtype
+from ._split_neighbours import edge_twins, ordered_rows, sorted_with_places, split_neighbours
 from .cells import FACES
 
 __all__ = ["PolyhedraSplit", "split_polyhedra", "cell_face_stream"]
@@ -74,6 +75,11 @@ class PolyhedraSplit:
     points : ndarray of shape (n_points + n_centres, 3), optional
         The input points followed by the centres (:meth:`centre_values` of the points), kept
         so that later steps on the same points and faces do not compute them again.
+    neighbours : ndarray of shape (m, 4), int32 or int64, optional
+        The tetrahedra's face neighbours found from the polyhedra's faces
+        (:mod:`._split_neighbours`), each row the higher numbers first, then the lower, each
+        increasing, -1 at the end (a face on the boundary); None when the faces did not allow it.
+        The same adjacency as grouping the tetrahedra's faces.
     """
 
     tetra: np.ndarray
@@ -85,6 +91,7 @@ class PolyhedraSplit:
     reversed_cells: int = 0
     inverted_tetra: int = 0
     points: np.ndarray | None = None
+    neighbours: np.ndarray | None = None
 
     @property
     def n_centres(self) -> int:
@@ -264,16 +271,27 @@ def split_polyhedra(points: np.ndarray, face_points, face_offsets, face_cell, n_
     edge_cell = np.repeat(face_cell, sizes)
     bits = _bits(n_points)
     packed = _bits(n_cells) + 2 * bits <= 63  # (cell, point) and (cell, point, point) keys fit in int64
-    if not (packed and _closed_by_keys(face_points, nxt, edge_cell, bits)):
+    # each edge's twin in its cell (None: the surface is not closed, or the stream not in cell order)
+    twin = edge_twins(face_points, nxt, edge_cell, n_points)
+    if twin is None and not (packed and _closed_by_keys(face_points, nxt, edge_cell, bits)):
         _check_closed(face_points, nxt, edge_cell, where, ids)  # the grouping names what is wrong
 
     # face centres: one per distinct face of four or more corners
     centre_parts, centre_counts, face_centre = [], [], np.full(sizes.size, -1, dtype=np.int64)
     n_face_centres = 0
+    centred_groups = []  # per face size: what the tetrahedra's neighbours across the faces need
     for k in np.unique(sizes[sizes >= 4]):
         faces = np.flatnonzero(sizes == k)
-        rows = np.sort(face_points[face_offsets[faces][:, None] + np.arange(k)], axis=1)
+        rows = face_points[face_offsets[faces][:, None] + np.arange(k)]
+        if twin is not None and k < 128:  # where each sorted corner sits in its face, for the neighbours
+            rows, local = sorted_with_places(rows)
+        else:
+            rows, local = np.sort(rows, axis=1), None
         order, starts = group_columns(list(rows.T))
+        if local is not None:
+            centred_groups.append((faces, rows, local, (order, starts)))
+        elif twin is not None:
+            twin = None  # a face of 128 corners or more: the mesh groups the tetrahedra's faces
         group = np.empty(faces.size, dtype=np.int64)
         group[order] = np.repeat(np.arange(starts.size), np.diff(starts, append=order.size))
         face_centre[faces] = n_points + n_face_centres + group
@@ -322,10 +340,21 @@ def split_polyhedra(points: np.ndarray, face_points, face_offsets, face_cell, n_
         source[triangles.size:] = face_cell[face_of]
         del face_of
         part[:, 3] = cell_centre[source[triangles.size:]]
-    del corner, nxt
+    neighbours = None
+    if twin is not None:
+        neighbours = _tetra_neighbours(face_points, face_offsets, sizes, nxt, face_cell, twin, n_points,
+                                       centred_groups, triangles, corner, tetra.shape[0])
+    del corner, nxt, twin, centred_groups
     if source.size and np.any(source[1:] < source[:-1]):  # faces of several sizes: cell by cell again
         keep = np.argsort(source, kind="stable")
         tetra, source = tetra[keep], source[keep]
+        if neighbours is not None:
+            new = np.empty(keep.size, dtype=neighbours.dtype)
+            new[keep] = np.arange(keep.size, dtype=neighbours.dtype)
+            neighbours = neighbours[keep]
+            neighbours = np.where(neighbours >= 0, new[neighbours], neighbours)
+    if neighbours is not None:
+        ordered_rows(neighbours)
 
     split = PolyhedraSplit(tetra, source, centre_points, centre_offsets, n_points, n_face_centres)
     Y = np.concatenate([X, split.centre_values(X)])
@@ -341,8 +370,20 @@ def split_polyhedra(points: np.ndarray, face_points, face_offsets, face_cell, n_
         volume[flip] = -volume[flip]
     done = PolyhedraSplit(tetra, source, centre_points, centre_offsets, n_points, n_face_centres,
                           reversed_cells=int(np.count_nonzero(turn)),
-                          inverted_tetra=int(np.count_nonzero(volume < 0)), points=Y)
+                          inverted_tetra=int(np.count_nonzero(volume < 0)), points=Y, neighbours=neighbours)
     return done
+
+
+def _tetra_neighbours(face_points, face_offsets, sizes, nxt, face_cell, twin, n_points, centred_groups, triangles,
+                      corner, n_tetra):
+    """The tetrahedra's face neighbours from the faces (:func:`._split_neighbours.split_neighbours`)."""
+    dtype = index_dtype(n_tetra + 1)
+    tet_of_position = np.empty(face_points.size, dtype=dtype)
+    tet_of_position[corner] = np.arange(triangles.size, triangles.size + corner.size, dtype=dtype)
+    for j in range(3):
+        tet_of_position[face_offsets[triangles] + j] = np.arange(triangles.size, dtype=dtype)
+    return split_neighbours(face_points, face_offsets, sizes, nxt, face_cell, twin, n_points, centred_groups,
+                            tet_of_position, n_tetra)
 
 
 def _signed_volumes(Y: np.ndarray, tetra: np.ndarray) -> np.ndarray:

@@ -1,0 +1,234 @@
+"""Face neighbours of the tetrahedra of a polyhedra split, from the polyhedra's own faces.
+
+A tetrahedron of :func:`phasegauge.model.polyhedra.split_polyhedra` stands on one edge
+``a -> b`` of one face of its cell (with the face centre, or the third corner of a triangular
+face) and has the cell centre as its last corner. Its four faces meet:
+
+* ``(a, b, cell centre)``: the tetrahedron on the same edge, run the other way, in the cell's
+  other face on that edge (the edge's twin: the closed-surface check pairs them anyway);
+* ``(a, face centre, cell centre)`` and ``(b, face centre, cell centre)``: the tetrahedra of
+  the edges before and after it around the same face;
+* the face triangle ``(a, b, face centre)``: the tetrahedron on the same edge of the same face
+  seen from the neighbouring cell (faces matched by their corner sets), or none on the boundary.
+
+So only the polyhedra's faces need grouping (a quarter of the rows of the tetrahedra's faces)
+and the edges' twins within each cell: no grouping of the tetrahedra's 4 faces each. The result
+is the same face adjacency as grouping the tetrahedra's faces by their corners, and is given
+only when that is certain: every face of one or two different cells, no corner twice in a face,
+no face twice in a cell; otherwise None (the mesh groups the tetrahedra's faces itself).
+"""
+
+from __future__ import annotations
+
+import numpy as np
+
+from ._grouping import CHUNK, _sort_order, group_columns, sort_columns, sort_small_rows
+
+__all__ = ["edge_twins", "split_neighbours", "ordered_rows", "sorted_with_places"]
+
+
+def _bits(n: int) -> int:
+    return max(int(n - 1).bit_length(), 1)
+
+
+def edge_twins(face_points: np.ndarray, nxt: np.ndarray, edge_cell: np.ndarray, n_points: int) -> np.ndarray | None:
+    """For each face-stream position (edge ``a -> b`` of its cell), the position of ``b -> a`` in the same cell.
+
+    None when that is not one position for every edge (the surface is not closed and consistently
+    oriented, a corner follows itself) or when the stream does not list its cells in order (the
+    caller then checks the surface by other means). Sorted by packed ``(a, b)`` keys with the
+    position below them, in chunks of whole cells so that the key fits in 63 bits.
+    """
+    n = face_points.size
+    if n == 0:
+        return np.zeros(0, dtype=np.int64)
+    if np.any(edge_cell[1:] < edge_cell[:-1]):
+        return None
+    bits = _bits(n_points)
+    room = 63 - 2 * bits
+    if room < 8:
+        return None
+    b = face_points[nxt]
+    if np.any(face_points == b):
+        return None
+    twin = np.empty(n, dtype=np.int32 if n < 2 ** 31 - 1 else np.int64)
+    cell_start = np.flatnonzero(np.concatenate([[True], edge_cell[1:] != edge_cell[:-1]]))
+    span = 1 << min(room, 30)
+    lo = 0
+    while lo < n:
+        hi = min(lo + span, n)
+        if hi < n:  # end the chunk at the start of a cell
+            cut = cell_start[np.searchsorted(cell_start, hi, side="right") - 1]
+            if cut <= lo:
+                return None  # one cell's stream longer than a chunk
+            hi = int(cut)
+        found = _chunk_twins(face_points[lo:hi], b[lo:hi], edge_cell[lo:hi], bits)
+        if found is None:
+            return None
+        twin[lo:hi] = found + lo
+        lo = hi
+    return twin
+
+
+def _chunk_twins(a: np.ndarray, b: np.ndarray, cell: np.ndarray, bits: int) -> np.ndarray | None:
+    """Twins within one run of whole cells (positions local to the run)."""
+    m = a.size
+    forward = (a.astype(np.int64) << np.int64(bits)) | b
+    backward = (b.astype(np.int64) << np.int64(bits)) | a
+    f_order, f_key = _sort_order(forward, 2 * bits)
+    b_order, b_key = _sort_order(backward, 2 * bits)
+    # each directed edge once per cell: equal keys next to each other belong to different cells
+    # (positions, so cells, increase within a key), and the reversed edges are the same multiset
+    if not np.array_equal(f_key, b_key):
+        return None
+    f_cell, b_cell = cell[f_order], cell[b_order]
+    same = f_key[1:] == f_key[:-1]
+    if np.any(same & (f_cell[1:] == f_cell[:-1])) or not np.array_equal(f_cell, b_cell):
+        return None
+    twin = np.empty(m, dtype=np.int64)
+    twin[f_order] = b_order
+    return twin
+
+
+def _matched_faces(rows_sorted: np.ndarray, faces: np.ndarray, face_cell: np.ndarray, grouped=None):
+    """Faces of one size grouped by their corner sets: (first, second) of each shared face, or None.
+
+    None when a face has a corner twice, a corner set is had by more than two faces, or both
+    faces of a pair belong to one cell. ``grouped``: the rows' ``group_columns`` when known.
+    """
+    if rows_sorted.shape[1] > 1 and np.any(rows_sorted[:, 1:] == rows_sorted[:, :-1]):
+        return None
+    order, starts = group_columns(list(rows_sorted.T)) if grouped is None else grouped
+    counts = np.diff(starts, append=order.size)
+    if np.any(counts > 2):
+        return None
+    pair = starts[counts == 2]
+    first, second = order[pair], order[pair + 1]
+    if np.any(face_cell[faces[first]] == face_cell[faces[second]]):
+        return None
+    return first, second
+
+
+def split_neighbours(face_points, face_offsets, sizes, nxt, face_cell, twin, n_points: int,
+                     centred_groups, tet_of_position, n_tetra: int) -> np.ndarray | None:
+    """Face neighbours of every tetrahedron of the split (before any reordering), or None.
+
+    Parameters
+    ----------
+    face_points, face_offsets, sizes, nxt, face_cell
+        The checked face stream (see :func:`phasegauge.model.polyhedra.split_polyhedra`).
+    twin : ndarray
+        :func:`edge_twins` of the stream.
+    centred_groups : list of (faces, rows_sorted, local, (order, starts))
+        Per face size of 4 or more: the faces, their corners sorted, where each sorted corner
+        sits in the face (``rows_sorted[i, j] == face_points[offset[i] + local[i, j]]``) and the
+        rows' grouping (:func:`._grouping.group_columns`).
+    tet_of_position : ndarray (q,)
+        The tetrahedron standing on each stream position's edge (a triangular face's three
+        positions: its one tetrahedron).
+
+    Returns
+    -------
+    ndarray of shape (n_tetra, 4), int32 or int64, -1 where a face lies on the boundary.
+    """
+    dtype = tet_of_position.dtype
+    out = np.empty((n_tetra, 4), dtype=dtype)
+    triangles = np.flatnonzero(sizes == 3)
+    prev = np.empty_like(nxt)
+    prev[nxt] = np.arange(nxt.size, dtype=nxt.dtype)
+    if triangles.size == 0:
+        # every face centred: the tetrahedra are numbered as the stream positions they stand on
+        out[:, 0] = twin  # the edge's twin in the cell
+        out[:, 1] = nxt  # around the face: the edges after and before
+        out[:, 2] = prev
+    else:
+        pos = np.flatnonzero(np.repeat(sizes >= 4, sizes))
+        tets = tet_of_position[pos]
+        out[tets, 0] = tet_of_position[twin[pos]]
+        out[tets, 1] = tet_of_position[nxt[pos]]
+        out[tets, 2] = tet_of_position[prev[pos]]
+        del tets, pos
+        start = face_offsets[triangles]
+        tri = tet_of_position[start]
+        for j in range(3):  # a triangle's three edges: their twins in the cell
+            out[tri, j] = tet_of_position[twin[start + j]]
+        del start, tri
+    del prev
+    out[:, 3] = -1
+    # across the faces between cells
+    for faces, rows_sorted, local, grouped in centred_groups:
+        matched = _matched_faces(rows_sorted, faces, face_cell, grouped)
+        if matched is None:
+            return None
+        first, second = matched
+        if not _join_centred(out, faces[first], faces[second], local[first], local[second], face_offsets,
+                             tet_of_position):
+            return None
+    if triangles.size:
+        rows = sort_small_rows(face_points[face_offsets[triangles][:, None] + np.arange(3)])
+        matched = _matched_faces(rows, triangles, face_cell)
+        if matched is None:
+            return None
+        f, g = triangles[matched[0]], triangles[matched[1]]
+        tf, tg = tet_of_position[face_offsets[f]], tet_of_position[face_offsets[g]]
+        out[tf, 3] = tg
+        out[tg, 3] = tf
+    return out
+
+
+def _join_centred(out, f, g, local_f, local_g, face_offsets, tet_of_position) -> bool:
+    """Tetrahedra on the same edge of the faces ``f`` and ``g`` (same corner sets, other cells) joined."""
+    if f.size == 0:
+        return True
+    k = local_f.shape[1]
+    # where each corner of f (by its place in f) sits in g
+    in_g = np.empty_like(local_g)
+    np.put_along_axis(in_g, local_f, local_g, axis=1)
+    for i in range(k):
+        ga, gb = in_g[:, i], in_g[:, (i + 1) % k]
+        same = (ga + 1) % k == gb  # g runs a -> b too (a cell listing its faces the other way)
+        opposite = (gb + 1) % k == ga
+        if not np.all(same | opposite):
+            return False  # the same corners in another order: not one face
+        j = np.where(same, ga, gb)
+        tf = tet_of_position[face_offsets[f] + i]
+        tg = tet_of_position[face_offsets[g] + j]
+        out[tf, 3] = tg
+        out[tg, 3] = tf
+    return True
+
+
+def ordered_rows(neighbours: np.ndarray) -> np.ndarray:
+    """Each row's neighbours in the order of a neighbour table built from sorted face pairs: the
+    higher cell numbers first, then the lower, each increasing, -1 at the end (in place)."""
+    n = neighbours.shape[0]
+    chunk = CHUNK * 8
+    for lo in range(0, n, chunk):
+        nb = neighbours[lo:lo + chunk]
+        own = np.arange(lo, lo + nb.shape[0], dtype=nb.dtype)
+        keys = []
+        for j in range(nb.shape[1]):
+            col = nb[:, j]
+            key = col.astype(np.int32 if 2 * n < 2 ** 31 - 1 else np.int64)
+            key[col < own] += n
+            key[col < 0] = 2 * n
+            keys.append(key)
+        for j, key in enumerate(sort_columns(keys) if len(keys) <= 4 else list(np.sort(np.stack(keys, 1), 1).T)):
+            boundary = key >= 2 * n
+            key[key >= n] -= n
+            key[boundary] = -1
+            nb[:, j] = key
+    return neighbours
+
+
+def sorted_with_places(rows: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    """Each row sorted, and where each sorted entry was in its row: ``(sorted, local)``, ``local`` int8
+    (``sorted[i, j] == rows[i, local[i, j]]``; rows of non-negative integers, at most 127 wide)."""
+    k = rows.shape[1]
+    shift = np.int64(max(int(k - 1).bit_length(), 1))
+    keys = [(rows[:, j].astype(np.int64) << shift) | j for j in range(k)]
+    keys = sort_columns(keys) if k <= 4 else list(np.sort(np.stack(keys, 1), 1).T)
+    mask = np.int64((1 << int(shift)) - 1)
+    local = np.stack([(key & mask).astype(np.int8) for key in keys], axis=1)
+    ordered = np.stack([(key >> shift).astype(rows.dtype) for key in keys], axis=1)
+    return ordered, local
