@@ -14,13 +14,18 @@ Builds (or reuses) the XDMF series of ``bench_measure.py`` (``--kind``, ``--cell
 * the same two again in this process, where matplotlib is imported already;
 * ``report data``: ``measure_report_data`` (input hashes, snapshots, records) in this process.
 
+With ``--whole-run``, also whole ``measure`` processes on the series (``phasegauge.measure(path, 'c',
+out=..., section_axis='x', snapshots=4)`` on ``--workers`` 1 and 2, from the interpreter's start to its
+exit), with the report's plotting imported on a background thread during the steps (as the run does)
+and without it (the thread's work replaced by nothing), alternately.
+
 Printed: seconds and the ratio report / baseline (the machine's load cancels in the ratio when
 both run in the same round). CPU seconds of each child are given beside the wall clock.
 
 Usage::
 
     PYTHONPATH=src python benchmarks/bench_report.py [--cells 0.25] [--steps 20] [--kind tetra]
-        [--repeat 3] [--keep DIR]
+        [--repeat 3] [--keep DIR] [--whole-run]
 """
 
 from __future__ import annotations
@@ -105,6 +110,34 @@ def _child(job: str, pickled: str, out: str, count: str) -> None:
     print(f"{time.perf_counter() - t0:.4f} {time.process_time() - cpu:.4f}")
 
 
+_WHOLE_RUN = """
+import sys, warnings
+import phasegauge
+import phasegauge.run.measure as run_measure
+if sys.argv[3] == "without":
+    run_measure._import_drawing = lambda: None
+with warnings.catch_warnings():
+    warnings.simplefilter("ignore")
+    phasegauge.measure(sys.argv[1], "c", out=sys.argv[2], section_axis="x", snapshots=4, workers=int(sys.argv[4]),
+                       overwrite=True)
+"""
+
+
+def _whole_run(path: str, out: str, preload: str, workers: int) -> tuple:
+    """Wall and CPU seconds (this child and its forks) of a whole measure process."""
+    import resource
+
+    env = dict(os.environ, MPLBACKEND="Agg")
+    before = resource.getrusage(resource.RUSAGE_CHILDREN)
+    t0 = time.perf_counter()
+    subprocess.run([sys.executable, "-c", _WHOLE_RUN, path, out, preload, str(workers)], env=env, check=True,
+                   capture_output=True)
+    wall = time.perf_counter() - t0
+    after = resource.getrusage(resource.RUSAGE_CHILDREN)
+    cpu = (after.ru_utime - before.ru_utime) + (after.ru_stime - before.ru_stime)
+    return wall, cpu
+
+
 def _run_child(job: str, pickled: str, out: str, count: int) -> tuple:
     env = dict(os.environ, MPLBACKEND="Agg")
     done = subprocess.run([sys.executable, os.path.abspath(__file__), "--child", job, pickled, out, str(count)],
@@ -120,6 +153,8 @@ def main(argv=None) -> None:
     parser.add_argument("--kind", default="tetra", help="tetra, hexahedron or grid (as bench_measure.py)")
     parser.add_argument("--repeat", type=int, default=3)
     parser.add_argument("--keep", default=None, help="build the series in this folder and keep it")
+    parser.add_argument("--whole-run", action="store_true",
+                        help="also time whole measure processes with and without the background plotting import")
     parser.add_argument("--child", nargs=4, help=argparse.SUPPRESS)
     args = parser.parse_args(argv)
     if args.child:
@@ -147,14 +182,24 @@ def main(argv=None) -> None:
             cpu, t0 = time.process_time(), time.perf_counter()
             plain_plots(count, os.path.join(scratch, "b_here"))
             keep("baseline, this process", (time.perf_counter() - t0, time.process_time() - cpu))
+            if args.whole_run:
+                for workers in (1, 2):
+                    for preload in ("with", "without"):
+                        keep(f"measure -j {workers}, {preload} import thread",
+                             _whole_run(info["path"], os.path.join(scratch, "m"), preload, workers))
         best = {name: min(values) for name, values in rows.items()}
         print(f"series: {info['kind']}, {info['cells']} cells, {info['steps']} steps; the report draws {count} figures")
         print(f"report data (input hashes, snapshots): {data_seconds:.3f} s")
         for name, (wall, cpu) in best.items():
-            print(f"{name:26s} {wall:7.3f} s wall  {cpu:7.3f} s CPU")
+            print(f"{name:38s} {wall:7.3f} s wall  {cpu:7.3f} s CPU")
         for where in ("fresh process", "this process"):
             report, base = best[f"report, {where}"], best[f"baseline, {where}"]
             print(f"report / baseline, {where}: {report[0] / base[0]:.2f} (wall)  {report[1] / base[1]:.2f} (CPU)")
+        if args.whole_run:
+            for workers in (1, 2):
+                with_, without = (best[f"measure -j {workers}, {p} import thread"] for p in ("with", "without"))
+                print(f"measure -j {workers}, with / without the import thread: {with_[0] / without[0]:.3f} (wall)  "
+                      f"{with_[1] / without[1]:.3f} (CPU)")
     finally:
         shutil.rmtree(scratch, ignore_errors=True)
         if args.keep is None:

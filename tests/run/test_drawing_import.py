@@ -1,0 +1,51 @@
+"""A run with plots imports its plotting on a background thread once the first step is done."""
+
+import threading
+
+import numpy as np
+import pytest
+
+import phasegauge.report._plots as plots
+from phasegauge import measure
+from phasegauge.meshgen import grid_mesh, to_meshio
+
+
+def _discs(folder, steps):
+    mesh = grid_mesh((12, 12), kind="quad")
+    x, y = mesh.cell_centroids[:, 0], mesh.cell_centroids[:, 1]
+    lines = []
+    for k in range(steps):
+        c = 0.5 * (1 + np.tanh((0.2 - np.hypot(x - 0.3 - 0.1 * k, y - 0.5)) / 0.04))
+        to_meshio(mesh, cell_data={"alpha": c}).write(folder / f"s_{k}.vtu")
+        lines.append(f"{0.5 * k},s_{k}.vtu")
+    (folder / "run.steps").write_text("\n".join(lines) + "\n")
+    return str(folder / "run.steps")
+
+
+@pytest.fixture
+def imports(monkeypatch):
+    """The names of the threads that called ``import_drawing`` while the test ran."""
+    seen = []
+    real = plots.import_drawing
+
+    def recording():
+        seen.append(threading.current_thread().name)
+        real()
+
+    monkeypatch.setattr(plots, "import_drawing", recording)
+    return seen
+
+
+@pytest.mark.parametrize("workers", [1, 2])
+def test_a_run_with_plots_imports_them_on_a_background_thread(tmp_path, imports, workers):
+    measure(_discs(tmp_path, 4), "alpha", out=tmp_path / "out", workers=workers)
+    assert imports == ["import-plotting"]  # once, off the run's own thread
+    assert (tmp_path / "out" / "interface_width.png").exists()
+    assert not any(t.name == "import-plotting" for t in threading.enumerate())  # joined before the report
+
+
+def test_no_import_without_plots_or_without_an_output_folder(tmp_path, imports):
+    path = _discs(tmp_path, 3)
+    measure(path, "alpha")  # no output folder: no report
+    measure(path, "alpha", out=tmp_path / "one", steps="0", snapshots=0)  # one step, no snapshot: no plot
+    assert imports == []
