@@ -111,31 +111,51 @@ def _child(job: str, pickled: str, out: str, count: str) -> None:
 
 
 _WHOLE_RUN = """
-import sys, warnings
+import sys, time, warnings
 import phasegauge
+import phasegauge.report
+import phasegauge.run.executors as executors
 import phasegauge.run.measure as run_measure
 if sys.argv[3] == "without":
     run_measure._import_drawing = lambda: None
+marks = {}
+run_steps, report = executors.run_steps, phasegauge.report.write_measure_report
+
+
+def timed(name, function):
+    def call(*args, **kwargs):
+        t0, c0 = time.perf_counter(), time.process_time()
+        try:
+            return function(*args, **kwargs)
+        finally:
+            marks[name] = (time.perf_counter() - t0, time.process_time() - c0)
+    return call
+
+
+executors.run_steps = timed("steps", run_steps)
+phasegauge.report.write_measure_report = timed("report", report)
 with warnings.catch_warnings():
     warnings.simplefilter("ignore")
     phasegauge.measure(sys.argv[1], "c", out=sys.argv[2], section_axis="x", snapshots=4, workers=int(sys.argv[4]),
                        overwrite=True)
+print(*marks["steps"], *marks["report"])
 """
 
 
 def _whole_run(path: str, out: str, preload: str, workers: int) -> tuple:
-    """Wall and CPU seconds (this child and its forks) of a whole measure process."""
+    """Wall and CPU seconds of a whole measure process (CPU: the child and its forks); then wall and
+    CPU seconds (this process only) of its steps (``run_steps``) and of its report."""
     import resource
 
     env = dict(os.environ, MPLBACKEND="Agg")
     before = resource.getrusage(resource.RUSAGE_CHILDREN)
     t0 = time.perf_counter()
-    subprocess.run([sys.executable, "-c", _WHOLE_RUN, path, out, preload, str(workers)], env=env, check=True,
-                   capture_output=True)
+    done = subprocess.run([sys.executable, "-c", _WHOLE_RUN, path, out, preload, str(workers)], env=env,
+                          check=True, capture_output=True, text=True)
     wall = time.perf_counter() - t0
     after = resource.getrusage(resource.RUSAGE_CHILDREN)
     cpu = (after.ru_utime - before.ru_utime) + (after.ru_stime - before.ru_stime)
-    return wall, cpu
+    return (wall, cpu, *(float(v) for v in done.stdout.split()[-4:]))
 
 
 def _run_child(job: str, pickled: str, out: str, count: int) -> tuple:
@@ -190,8 +210,10 @@ def main(argv=None) -> None:
         best = {name: min(values) for name, values in rows.items()}
         print(f"series: {info['kind']}, {info['cells']} cells, {info['steps']} steps; the report draws {count} figures")
         print(f"report data (input hashes, snapshots): {data_seconds:.3f} s")
-        for name, (wall, cpu) in best.items():
-            print(f"{name:38s} {wall:7.3f} s wall  {cpu:7.3f} s CPU")
+        for name, (wall, cpu, *parts) in best.items():
+            print(f"{name:38s} {wall:7.3f} s wall  {cpu:7.3f} s CPU"
+                  + ("  (steps {:.3f} s wall {:.3f} s CPU, report {:.3f} s wall {:.3f} s CPU)".format(*parts)
+                     if parts else ""))
         for where in ("fresh process", "this process"):
             report, base = best[f"report, {where}"], best[f"baseline, {where}"]
             print(f"report / baseline, {where}: {report[0] / base[0]:.2f} (wall)  {report[1] / base[1]:.2f} (CPU)")

@@ -150,3 +150,6 @@ def draw_surface_in_box(ax, points, elements, *, bounds, axis_names=("x", "y", "
     ax.set_ylim(screen_corners[:, 1].min() - margin, screen_corners[:, 1].max() + margin)
     ax.set_aspect("equal")
     ax.set_axis_off()
+    # no ticks at all: an axes that is off still builds them to place its title above them
+    ax.set_xticks([])
+    ax.set_yticks([])
