@@ -19,13 +19,17 @@ out=..., section_axis='x', snapshots=4)`` on ``--workers`` 1 and 2, from the int
 exit), with the report's plotting imported on a background thread during the steps (as the run does)
 and without it (the thread's work replaced by nothing), alternately.
 
+With ``--figures``, also each figure in this process, fastest of ``--repeat`` rounds in CPU seconds:
+making all figures (``measure_figures``), then per figure its layout and its drawing with the PNG
+encoding (as ``atomic_save_figure`` does them).
+
 Printed: seconds and the ratio report / baseline (the machine's load cancels in the ratio when
 both run in the same round). CPU seconds of each child are given beside the wall clock.
 
 Usage::
 
     PYTHONPATH=src python benchmarks/bench_report.py [--cells 0.25] [--steps 20] [--kind tetra]
-        [--repeat 3] [--keep DIR] [--whole-run]
+        [--repeat 3] [--keep DIR] [--whole-run] [--figures]
 """
 
 from __future__ import annotations
@@ -158,6 +162,28 @@ def _whole_run(path: str, out: str, preload: str, workers: int) -> tuple:
     return (wall, cpu, *(float(v) for v in done.stdout.split()[-4:]))
 
 
+def _time_figures(result, data, repeat: int) -> None:
+    """Print the CPU seconds of making the report's figures, and of laying out and drawing each."""
+    from phasegauge.report import _files
+    from phasegauge.report._measure_report import measure_figures
+
+    best = {}
+    for _ in range(max(1, repeat)):
+        cpu = time.process_time()
+        figures = measure_figures(result, data["snapshots"])
+        best["make all"] = min(best.get("make all", 1e9), time.process_time() - cpu)
+        for stem, _caption, figure in figures:
+            cpu = time.process_time()
+            _files._lay_out_once(figure, DPI)
+            middle = time.process_time()
+            _files._png_bytes(figure, DPI)
+            end = time.process_time()
+            best[f"{stem}: layout"] = min(best.get(f"{stem}: layout", 1e9), middle - cpu)
+            best[f"{stem}: draw + PNG"] = min(best.get(f"{stem}: draw + PNG", 1e9), end - middle)
+    for name, seconds in best.items():
+        print(f"figures, {name:38s} {seconds:7.3f} s CPU")
+
+
 def _run_child(job: str, pickled: str, out: str, count: int) -> tuple:
     env = dict(os.environ, MPLBACKEND="Agg")
     done = subprocess.run([sys.executable, os.path.abspath(__file__), "--child", job, pickled, out, str(count)],
@@ -175,6 +201,7 @@ def main(argv=None) -> None:
     parser.add_argument("--keep", default=None, help="build the series in this folder and keep it")
     parser.add_argument("--whole-run", action="store_true",
                         help="also time whole measure processes with and without the background plotting import")
+    parser.add_argument("--figures", action="store_true", help="also time each figure in this process")
     parser.add_argument("--child", nargs=4, help=argparse.SUPPRESS)
     args = parser.parse_args(argv)
     if args.child:
@@ -222,6 +249,8 @@ def main(argv=None) -> None:
                 with_, without = (best[f"measure -j {workers}, {p} import thread"] for p in ("with", "without"))
                 print(f"measure -j {workers}, with / without the import thread: {with_[0] / without[0]:.3f} (wall)  "
                       f"{with_[1] / without[1]:.3f} (CPU)")
+        if args.figures:
+            _time_figures(result, data, args.repeat)
     finally:
         shutil.rmtree(scratch, ignore_errors=True)
         if args.keep is None:
