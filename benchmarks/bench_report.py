@@ -15,7 +15,7 @@ Builds (or reuses) the XDMF series of ``bench_measure.py`` (``--kind``, ``--cell
 * ``report data``: ``measure_report_data`` (input hashes, snapshots, records) in this process.
 
 With ``--whole-run``, also whole ``measure`` processes on the series (``phasegauge.measure(path, 'c',
-out=..., section_axis='x', snapshots=4)`` on ``--workers`` 1 and 2, from the interpreter's start to its
+out=..., section_axis='x', snapshots=4)`` on each of ``--whole-workers`` (1 and 2), from the interpreter's start to its
 exit), with the report's plotting imported on a background thread during the steps (as the run does)
 and without it (the thread's work replaced by nothing), alternately.
 
@@ -201,12 +201,14 @@ def main(argv=None) -> None:
     parser.add_argument("--keep", default=None, help="build the series in this folder and keep it")
     parser.add_argument("--whole-run", action="store_true",
                         help="also time whole measure processes with and without the background plotting import")
+    parser.add_argument("--whole-workers", default="1,2", help="the --workers of the whole runs, comma-separated")
     parser.add_argument("--figures", action="store_true", help="also time each figure in this process")
     parser.add_argument("--child", nargs=4, help=argparse.SUPPRESS)
     args = parser.parse_args(argv)
     if args.child:
         _child(*args.child)
         return
+    whole_workers = [int(w) for w in args.whole_workers.split(",")]
     folder = args.keep or tempfile.mkdtemp(prefix="pg_bench_report_")
     scratch = tempfile.mkdtemp(prefix="pg_bench_report_out_")
     try:
@@ -230,7 +232,7 @@ def main(argv=None) -> None:
             plain_plots(count, os.path.join(scratch, "b_here"))
             keep("baseline, this process", (time.perf_counter() - t0, time.process_time() - cpu))
             if args.whole_run:
-                for workers in (1, 2):
+                for workers in whole_workers:
                     for preload in ("with", "without"):
                         keep(f"measure -j {workers}, {preload} import thread",
                              _whole_run(info["path"], os.path.join(scratch, "m"), preload, workers))
@@ -245,7 +247,7 @@ def main(argv=None) -> None:
             report, base = best[f"report, {where}"], best[f"baseline, {where}"]
             print(f"report / baseline, {where}: {report[0] / base[0]:.2f} (wall)  {report[1] / base[1]:.2f} (CPU)")
         if args.whole_run:
-            for workers in (1, 2):
+            for workers in whole_workers:
                 with_, without = (best[f"measure -j {workers}, {p} import thread"] for p in ("with", "without"))
                 print(f"measure -j {workers}, with / without the import thread: {with_[0] / without[0]:.3f} (wall)  "
                       f"{with_[1] / without[1]:.3f} (CPU)")

@@ -37,7 +37,10 @@ def imports(monkeypatch):
 
 
 @pytest.mark.parametrize("workers", [1, 2])
-def test_a_run_with_plots_imports_them_on_a_background_thread(tmp_path, imports, workers):
+def test_a_run_with_plots_imports_them_on_a_background_thread(tmp_path, imports, workers, monkeypatch):
+    import phasegauge.run.measure as run_measure
+
+    monkeypatch.setattr(run_measure, "_spare_core", lambda workers, scheduler: True)  # as on a machine of many cores
     measure(_discs(tmp_path, 4), "alpha", out=tmp_path / "out", workers=workers)
     assert imports == ["import-plotting"]  # once, off the run's own thread
     assert (tmp_path / "out" / "interface_width.png").exists()
@@ -49,3 +52,23 @@ def test_no_import_without_plots_or_without_an_output_folder(tmp_path, imports):
     measure(path, "alpha")  # no output folder: no report
     measure(path, "alpha", out=tmp_path / "one", steps="0", snapshots=0)  # one step, no snapshot: no plot
     assert imports == []
+
+
+def test_the_import_waits_for_a_spare_core():
+    import multiprocessing
+    import os
+
+    from phasegauge.run.measure import _spare_core
+
+    cores = len(os.sched_getaffinity(0)) if hasattr(os, "sched_getaffinity") else os.cpu_count()
+    assert _spare_core(cores, None) is False  # every core runs steps
+    assert _spare_core(1, "local") is False  # a local Dask cluster takes every core
+    assert _spare_core(cores, "tcp://127.0.0.1:8786") is True  # the steps run elsewhere
+    assert _spare_core(1, None) is (cores > 1)
+    # a forked child (as a campaign's runs side by side) shares the cores with its siblings
+    ctx = multiprocessing.get_context("fork")
+    receive, send = ctx.Pipe(duplex=False)
+    child = ctx.Process(target=lambda: send.send(_spare_core(1, None)))
+    child.start()
+    assert receive.recv() is False
+    child.join()

@@ -275,8 +275,8 @@ def _measure(series, options, out, txn, *, workers, scheduler, overwrite, resume
     feed = TrackingFeed(options, indices, cache=cache)
     before = input_stamps(series)
     bar = Progress(n, progress_label, enabled=progress)
-    drawing = _DrawingImport(bar) if out is not None and (n > 1 or (snapshots and "interface" in options.analyses)) \
-        else None
+    plots = out is not None and (n > 1 or bool(snapshots and "interface" in options.analyses))
+    drawing = _DrawingImport(bar) if plots and _spare_core(workers, scheduler) else None
     try:
         results = run_steps(runner, indices, workers=workers, scheduler=scheduler, feed=feed,
                             progress=drawing or bar)
@@ -313,7 +313,8 @@ class _DrawingImport:
     """The run's progress display, which also starts importing the report's plotting (matplotlib) on a
     background thread when the first step is done.
 
-    The import (about 0.4 s) then overlaps the other steps instead of delaying the report. It starts
+    The import (about 0.4 s) then overlaps the other steps instead of delaying the report, where the
+    run leaves a core free (:func:`_spare_core`). It starts
     after the first step, not before: local workers are forked when the run starts, and a fork must not
     copy an import half done. Under the GIL the two threads take turns where both run Python code; the
     steps' numpy work and a forked run's waiting for its workers leave the interpreter free.
@@ -334,6 +335,24 @@ class _DrawingImport:
         """Wait for the import to end (before the report draws, or before an error leaves the run)."""
         if self.thread is not None:
             self.thread.join()
+
+
+def _spare_core(workers: int, scheduler) -> bool:
+    """Whether this machine has a core the run's steps leave free, for the plotting import to use.
+
+    A local run of ``workers`` processes keeps that many cores busy; the import only slows it when it
+    has to share them (measured on 2 cores with 2 workers). A Dask run on a remote scheduler leaves this
+    process waiting; a ``'local'`` Dask cluster takes every core. A run in a child process (a campaign
+    measures its runs side by side in forked processes) shares the cores with its siblings: no import.
+    """
+    import multiprocessing
+
+    if multiprocessing.parent_process() is not None:
+        return False
+    if scheduler:
+        return scheduler != "local"
+    cores = len(os.sched_getaffinity(0)) if hasattr(os, "sched_getaffinity") else (os.cpu_count() or 1)
+    return workers < cores
 
 
 def _import_drawing() -> None:
