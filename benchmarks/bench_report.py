@@ -251,6 +251,10 @@ def main(argv=None) -> None:
                 with_, without = (best[f"measure -j {workers}, {p} import thread"] for p in ("with", "without"))
                 print(f"measure -j {workers}, with / without the import thread: {with_[0] / without[0]:.3f} (wall)  "
                       f"{with_[1] / without[1]:.3f} (CPU)")
+                for preload in ("with", "without"):
+                    runs = rows[f"measure -j {workers}, {preload} import thread"]
+                    print(f"  {preload:7s} the thread, each round (wall / CPU s): "
+                          + ", ".join(f"{r[0]:.2f} / {r[1]:.2f}" for r in runs))
         if args.figures:
             _time_figures(result, data, args.repeat)
     finally:

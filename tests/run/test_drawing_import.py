@@ -54,11 +54,13 @@ def test_no_import_without_plots_or_without_an_output_folder(tmp_path, imports):
     assert imports == []
 
 
-def test_the_import_waits_for_a_spare_core():
+def test_the_import_waits_for_a_spare_core(monkeypatch):
     import multiprocessing
     import os
 
     from phasegauge.run.measure import _spare_core
+
+    monkeypatch.setattr(os, "getloadavg", lambda: (0.0, 0.0, 0.0))  # an idle machine
 
     cores = len(os.sched_getaffinity(0)) if hasattr(os, "sched_getaffinity") else os.cpu_count()
     assert _spare_core(cores, None) is False  # every core runs steps
@@ -72,3 +74,5 @@ def test_the_import_waits_for_a_spare_core():
     child.start()
     assert receive.recv() is False
     child.join()
+    monkeypatch.setattr(os, "getloadavg", lambda: (cores - 0.5, 0.0, 0.0))  # other programs keep the cores busy
+    assert _spare_core(1, None) is False

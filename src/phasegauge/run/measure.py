@@ -344,6 +344,8 @@ def _spare_core(workers: int, scheduler) -> bool:
     has to share them (measured on 2 cores with 2 workers). A Dask run on a remote scheduler leaves this
     process waiting; a ``'local'`` Dask cluster takes every core. A run in a child process (a campaign
     measures its runs side by side in forked processes) shares the cores with its siblings: no import.
+    Nor when other programs keep the cores busy (the load average): on a 2-core machine under a load of
+    3 to 4 a serial run was no faster with the import alongside.
     """
     import multiprocessing
 
@@ -352,7 +354,9 @@ def _spare_core(workers: int, scheduler) -> bool:
     if scheduler:
         return scheduler != "local"
     cores = len(os.sched_getaffinity(0)) if hasattr(os, "sched_getaffinity") else (os.cpu_count() or 1)
-    return workers < cores
+    # other programs' work: the last minute's load average (where the system gives one)
+    busy = os.getloadavg()[0] if hasattr(os, "getloadavg") else 0.0
+    return workers + busy < cores
 
 
 def _import_drawing() -> None:
