@@ -124,6 +124,7 @@ def draw_surface_in_box(ax, points, elements, *, bounds, axis_names=("x", "y", "
     # the labelled edges, as matplotlib's default view places them: x along the front bottom edge,
     # y along the right bottom edge, z up the right vertical edge
     labelled = ((0, 0b000, 0b001), (1, 0b001, 0b011), (2, 0b011, 0b111))
+    anchors = [tuple(point) for point in screen_corners[:, :2]]
     for axis, start, stop in labelled:
         a, b = screen_corners[start, :2], screen_corners[stop, :2]
         mid = 0.5 * (a + b)
@@ -131,10 +132,13 @@ def draw_surface_in_box(ax, points, elements, *, bounds, axis_names=("x", "y", "
         out = np.array([along[1], -along[0]])
         if np.dot(out, mid - centre) < 0:
             out = -out
-        for value in MaxNLocator(nbins=2).tick_values(lo[axis], hi[axis]):
+        # three values on a long edge, the two ends on a short one (a thin side of a channel)
+        bins = 2 if np.linalg.norm(b - a) >= 0.4 * size else 1
+        for value in MaxNLocator(nbins=bins).tick_values(lo[axis], hi[axis]):
             if lo[axis] - 1e-9 * (hi[axis] - lo[axis]) <= value <= hi[axis] + 1e-9 * (hi[axis] - lo[axis]):
                 f = (value - lo[axis]) / max(hi[axis] - lo[axis], 1e-300)
                 x, y = a + f * (b - a) + 0.06 * size * out - 0.05 * size * (2 * f - 1) * along
+                anchors.append((x, y))
                 ax.text(x, y, f"{value:g}", fontsize="x-small", ha="center", va="center", color="0.3")
         angle = np.degrees(np.arctan2(along[1], along[0]))
         if angle > 90:
@@ -142,12 +146,15 @@ def draw_surface_in_box(ax, points, elements, *, bounds, axis_names=("x", "y", "
         elif angle < -90:
             angle += 180
         x, y = mid + 0.14 * size * out
+        anchors.append((x, y))
         name = axis_names[axis] if len(axis_names) > axis else "xyz"[axis]
         ax.text(x, y, in_mesh_units(name), fontsize="small", ha="center", va="center",
                 rotation=angle if axis != 2 else 90, rotation_mode="anchor")
-    margin = 0.1 * size
-    ax.set_xlim(screen_corners[:, 0].min() - margin, screen_corners[:, 0].max() + margin)
-    ax.set_ylim(screen_corners[:, 1].min() - margin, screen_corners[:, 1].max() + margin)
+    # the box and every label's anchor inside the panel, with room for the text around the anchors
+    anchors = np.array(anchors)
+    margin = 0.06 * size
+    ax.set_xlim(anchors[:, 0].min() - margin, anchors[:, 0].max() + margin)
+    ax.set_ylim(anchors[:, 1].min() - margin, anchors[:, 1].max() + margin)
     ax.set_aspect("equal")
     ax.set_axis_off()
     # no ticks at all: an axes that is off still builds them to place its title above them
