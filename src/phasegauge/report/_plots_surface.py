@@ -121,9 +121,10 @@ def draw_surface_in_box(ax, points, elements, *, bounds, axis_names=("x", "y", "
                                          edgecolors="none", antialiaseds=False, zorder=2))
     centre = screen_corners[:, :2].mean(axis=0)
     size = np.ptp(screen_corners[:, :2], axis=0).max()
-    # the labelled edges, as matplotlib's default view places them: x along the front bottom edge,
-    # y along the right bottom edge, z up the right vertical edge
-    labelled = ((0, 0b000, 0b001), (1, 0b001, 0b011), (2, 0b011, 0b111))
+    # the labelled edges: x along the front bottom edge, y along the right bottom edge (as matplotlib's
+    # default view places them), z up the left front edge (away from the y label, which a short z edge
+    # on the right would meet)
+    labelled = ((0, 0b000, 0b001), (1, 0b001, 0b011), (2, 0b000, 0b100))
     anchors = [tuple(point) for point in screen_corners[:, :2]]
     for axis, start, stop in labelled:
         a, b = screen_corners[start, :2], screen_corners[stop, :2]
@@ -153,7 +154,7 @@ def draw_surface_in_box(ax, points, elements, *, bounds, axis_names=("x", "y", "
     # the box and every label's anchor inside the panel, with room for the text around the anchors
     anchors = np.array(anchors)
     margin = 0.06 * size
-    ax.set_xlim(anchors[:, 0].min() - margin, anchors[:, 0].max() + margin)
+    ax.set_xlim(anchors[:, 0].min() - margin, anchors[:, 0].max() + 1.6 * margin)  # a slanted y label reaches right
     ax.set_ylim(anchors[:, 1].min() - margin, anchors[:, 1].max() + margin)
     ax.set_aspect("equal")
     ax.set_axis_off()
