@@ -314,10 +314,10 @@ class _DrawingImport:
     background thread when the first step is done.
 
     The import (about 0.4 s) then overlaps the other steps instead of delaying the report, where the
-    run leaves a core free (:func:`_spare_core`). It starts
-    after the first step, not before: local workers are forked when the run starts, and a fork must not
-    copy an import half done. Under the GIL the two threads take turns where both run Python code; the
-    steps' numpy work and a forked run's waiting for its workers leave the interpreter free.
+    run leaves a core free (:func:`_spare_core`). It starts after the first step, not before: local
+    workers are forked when the run starts, and a fork must not copy an import half done. Under the
+    GIL the two threads take turns where both run Python code; only the steps' numpy work leaves the
+    interpreter free for the import.
     """
 
     def __init__(self, progress):
