@@ -17,7 +17,8 @@ Builds (or reuses) the XDMF series of ``bench_measure.py`` (``--kind``, ``--cell
 With ``--whole-run``, also whole ``measure`` processes on the series (``phasegauge.measure(path, 'c',
 out=..., section_axis='x', snapshots=4)`` on each of ``--whole-workers`` (1 and 2), from the interpreter's start to its
 exit), with the report's plotting imported on a background thread during the steps (as the run does)
-and without it (the thread's work replaced by nothing), alternately.
+(started whatever the load: the run itself starts it only where a core is free) and without it (the
+thread's work replaced by nothing), alternately.
 
 With ``--figures``, also each figure in this process, fastest of ``--repeat`` rounds in CPU seconds:
 making all figures (``measure_figures``), then per figure its layout and its drawing with the PNG
@@ -122,6 +123,8 @@ import phasegauge.run.executors as executors
 import phasegauge.run.measure as run_measure
 if sys.argv[3] == "without":
     run_measure._import_drawing = lambda: None
+else:  # the thread whatever the machine's load (the run itself starts it only where a core is free)
+    run_measure._spare_core = lambda workers, scheduler: True
 marks = {}
 run_steps, report = executors.run_steps, phasegauge.report.write_measure_report
 
