@@ -14,13 +14,23 @@ Builds (or reuses) the XDMF series of ``bench_measure.py`` (``--kind``, ``--cell
 * the same two again in this process, where matplotlib is imported already;
 * ``report data``: ``measure_report_data`` (input hashes, snapshots, records) in this process.
 
+With ``--whole-run``, also whole ``measure`` processes on the series (``phasegauge.measure(path, 'c',
+out=..., section_axis='x', snapshots=4)`` on each of ``--whole-workers`` (1 and 2), from the interpreter's start to its
+exit), with the report's plotting imported on a background thread during the steps (as the run does)
+(started whatever the load: the run itself starts it only where a core is free) and without it (the
+thread's work replaced by nothing), alternately.
+
+With ``--figures``, also each figure in this process, fastest of ``--repeat`` rounds in CPU seconds:
+making all figures (``measure_figures``), then per figure its layout and its drawing with the PNG
+encoding (as ``atomic_save_figure`` does them).
+
 Printed: seconds and the ratio report / baseline (the machine's load cancels in the ratio when
 both run in the same round). CPU seconds of each child are given beside the wall clock.
 
 Usage::
 
     PYTHONPATH=src python benchmarks/bench_report.py [--cells 0.25] [--steps 20] [--kind tetra]
-        [--repeat 3] [--keep DIR]
+        [--repeat 3] [--keep DIR] [--whole-run] [--figures]
 """
 
 from __future__ import annotations
@@ -105,6 +115,78 @@ def _child(job: str, pickled: str, out: str, count: str) -> None:
     print(f"{time.perf_counter() - t0:.4f} {time.process_time() - cpu:.4f}")
 
 
+_WHOLE_RUN = """
+import sys, time, warnings
+import phasegauge
+import phasegauge.report
+import phasegauge.run.executors as executors
+import phasegauge.run.measure as run_measure
+if sys.argv[3] == "without":
+    run_measure._import_drawing = lambda: None
+else:  # the thread whatever the machine's load (the run itself starts it only where a core is free)
+    run_measure._spare_core = lambda workers, scheduler: True
+marks = {}
+run_steps, report = executors.run_steps, phasegauge.report.write_measure_report
+
+
+def timed(name, function):
+    def call(*args, **kwargs):
+        t0, c0 = time.perf_counter(), time.process_time()
+        try:
+            return function(*args, **kwargs)
+        finally:
+            marks[name] = (time.perf_counter() - t0, time.process_time() - c0)
+    return call
+
+
+executors.run_steps = timed("steps", run_steps)
+phasegauge.report.write_measure_report = timed("report", report)
+with warnings.catch_warnings():
+    warnings.simplefilter("ignore")
+    phasegauge.measure(sys.argv[1], "c", out=sys.argv[2], section_axis="x", snapshots=4, workers=int(sys.argv[4]),
+                       overwrite=True)
+print(*marks["steps"], *marks["report"])
+"""
+
+
+def _whole_run(path: str, out: str, preload: str, workers: int) -> tuple:
+    """Wall and CPU seconds of a whole measure process (CPU: the child and its forks); then wall and
+    CPU seconds (this process only) of its steps (``run_steps``) and of its report."""
+    import resource
+
+    env = dict(os.environ, MPLBACKEND="Agg")
+    before = resource.getrusage(resource.RUSAGE_CHILDREN)
+    t0 = time.perf_counter()
+    done = subprocess.run([sys.executable, "-c", _WHOLE_RUN, path, out, preload, str(workers)], env=env,
+                          check=True, capture_output=True, text=True)
+    wall = time.perf_counter() - t0
+    after = resource.getrusage(resource.RUSAGE_CHILDREN)
+    cpu = (after.ru_utime - before.ru_utime) + (after.ru_stime - before.ru_stime)
+    return (wall, cpu, *(float(v) for v in done.stdout.split()[-4:]))
+
+
+def _time_figures(result, data, repeat: int) -> None:
+    """Print the CPU seconds of making the report's figures, and of laying out and drawing each."""
+    from phasegauge.report import _files
+    from phasegauge.report._measure_report import measure_figures
+
+    best = {}
+    for _ in range(max(1, repeat)):
+        cpu = time.process_time()
+        figures = measure_figures(result, data["snapshots"])
+        best["make all"] = min(best.get("make all", 1e9), time.process_time() - cpu)
+        for stem, _caption, figure in figures:
+            cpu = time.process_time()
+            _files._lay_out_once(figure, DPI)
+            middle = time.process_time()
+            _files._png_bytes(figure, DPI)
+            end = time.process_time()
+            best[f"{stem}: layout"] = min(best.get(f"{stem}: layout", 1e9), middle - cpu)
+            best[f"{stem}: draw + PNG"] = min(best.get(f"{stem}: draw + PNG", 1e9), end - middle)
+    for name, seconds in best.items():
+        print(f"figures, {name:38s} {seconds:7.3f} s CPU")
+
+
 def _run_child(job: str, pickled: str, out: str, count: int) -> tuple:
     env = dict(os.environ, MPLBACKEND="Agg")
     done = subprocess.run([sys.executable, os.path.abspath(__file__), "--child", job, pickled, out, str(count)],
@@ -120,11 +202,16 @@ def main(argv=None) -> None:
     parser.add_argument("--kind", default="tetra", help="tetra, hexahedron or grid (as bench_measure.py)")
     parser.add_argument("--repeat", type=int, default=3)
     parser.add_argument("--keep", default=None, help="build the series in this folder and keep it")
+    parser.add_argument("--whole-run", action="store_true",
+                        help="also time whole measure processes with and without the background plotting import")
+    parser.add_argument("--whole-workers", default="1,2", help="the --workers of the whole runs, comma-separated")
+    parser.add_argument("--figures", action="store_true", help="also time each figure in this process")
     parser.add_argument("--child", nargs=4, help=argparse.SUPPRESS)
     args = parser.parse_args(argv)
     if args.child:
         _child(*args.child)
         return
+    whole_workers = [int(w) for w in args.whole_workers.split(",")]
     folder = args.keep or tempfile.mkdtemp(prefix="pg_bench_report_")
     scratch = tempfile.mkdtemp(prefix="pg_bench_report_out_")
     try:
@@ -147,14 +234,32 @@ def main(argv=None) -> None:
             cpu, t0 = time.process_time(), time.perf_counter()
             plain_plots(count, os.path.join(scratch, "b_here"))
             keep("baseline, this process", (time.perf_counter() - t0, time.process_time() - cpu))
+            if args.whole_run:
+                for workers in whole_workers:
+                    for preload in ("with", "without"):
+                        keep(f"measure -j {workers}, {preload} import thread",
+                             _whole_run(info["path"], os.path.join(scratch, "m"), preload, workers))
         best = {name: min(values) for name, values in rows.items()}
         print(f"series: {info['kind']}, {info['cells']} cells, {info['steps']} steps; the report draws {count} figures")
         print(f"report data (input hashes, snapshots): {data_seconds:.3f} s")
-        for name, (wall, cpu) in best.items():
-            print(f"{name:26s} {wall:7.3f} s wall  {cpu:7.3f} s CPU")
+        for name, (wall, cpu, *parts) in best.items():
+            print(f"{name:38s} {wall:7.3f} s wall  {cpu:7.3f} s CPU"
+                  + ("  (steps {:.3f} s wall {:.3f} s CPU, report {:.3f} s wall {:.3f} s CPU)".format(*parts)
+                     if parts else ""))
         for where in ("fresh process", "this process"):
             report, base = best[f"report, {where}"], best[f"baseline, {where}"]
             print(f"report / baseline, {where}: {report[0] / base[0]:.2f} (wall)  {report[1] / base[1]:.2f} (CPU)")
+        if args.whole_run:
+            for workers in whole_workers:
+                with_, without = (best[f"measure -j {workers}, {p} import thread"] for p in ("with", "without"))
+                print(f"measure -j {workers}, with / without the import thread: {with_[0] / without[0]:.3f} (wall)  "
+                      f"{with_[1] / without[1]:.3f} (CPU)")
+                for preload in ("with", "without"):
+                    runs = rows[f"measure -j {workers}, {preload} import thread"]
+                    print(f"  {preload:7s} the thread, each round (wall / CPU s): "
+                          + ", ".join(f"{r[0]:.2f} / {r[1]:.2f}" for r in runs))
+        if args.figures:
+            _time_figures(result, data, args.repeat)
     finally:
         shutil.rmtree(scratch, ignore_errors=True)
         if args.keep is None:

@@ -53,4 +53,7 @@ def test_3d_snapshots_have_axis_labels_and_no_empty_panel():
     assert len(figure.axes) == 4
     rows, cols = figure.axes[0].get_subplotspec().get_gridspec().get_geometry()
     assert rows * cols == 4
-    assert all(ax.get_xlabel() and ax.get_ylabel() and ax.get_zlabel() for ax in figure.axes)
+    # the panels are plain axes showing a fixed view: each names the three axes with their unit
+    for ax in figure.axes:
+        texts = {text.get_text() for text in ax.texts}
+        assert {"x (mesh units)", "y (mesh units)", "z (mesh units)"} <= texts

@@ -73,7 +73,7 @@ def plot_interface_width(steps_df, *, time_column: str = "time", title: str | No
 
 def plot_interface_snapshots(interfaces_by_step, *, bounds, axis_names=("x", "y", "z"), times=None,
                              max_panels: int = 6, max_triangles: int = 2500, title: str | None = None):
-    """Interfaces of several steps: overlaid in 2D, one 3D panel per step in 3D.
+    """Interfaces of several steps: overlaid in 2D; in 3D one panel per step, the surface in an orthographic view.
 
     Parameters
     ----------
@@ -139,31 +139,22 @@ def plot_interface_snapshots(interfaces_by_step, *, bounds, axis_names=("x", "y"
         ax.set_ylabel(in_mesh_units(axis_names[1]))
         legend_outside(ax)
     else:
-        from matplotlib.ticker import MaxNLocator
-        from mpl_toolkits.mplot3d.art3d import Poly3DCollection
+        from ._plots_surface import draw_surface_in_box
 
         cols = 2 if len(steps) == 4 else min(3, len(steps))  # no empty panel for the usual 4 snapshots
         rows = int(np.ceil(len(steps) / cols))
-        # fixed margins: each 3D panel keeps its labels inside its own box (a constrained layout of
-        # 3D axes costs more than drawing them)
-        fig = new_figure(4.0 * cols, 3.8 * rows, constrained=False)
-        fig.subplots_adjust(left=0.0, right=0.95, bottom=0.03, top=0.96 if not title else 0.91, wspace=0.1,
-                            hspace=0.12)
+        # one fixed orthographic view per panel on a plain axes (matplotlib's 3D axes cost more than
+        # the surface), on fixed margins: each panel keeps its labels inside its own box
+        fig = new_figure(3.8 * cols, 3.6 * rows, constrained=False)
+        fig.subplots_adjust(left=0.01, right=0.99, bottom=0.01, top=0.95 if not title else 0.9, wspace=0.04,
+                            hspace=0.1)
+        names = tuple(axis_names) + ("x", "y", "z")[len(axis_names):]
         for i, step in enumerate(steps):
-            ax = fig.add_subplot(rows, cols, i + 1, projection="3d")
+            ax = fig.add_subplot(rows, cols, i + 1)
             points, elements = interfaces_by_step[step]
             if len(elements):
                 points, elements = coarsened_surface(points, elements, max_triangles, bounds=(lo, hi))
-                tris = points[elements]
-                ax.add_collection3d(Poly3DCollection(tris, facecolor="C0", edgecolor="none", alpha=0.8))
-            ax.set_xlim(lo[0], hi[0])
-            ax.set_ylim(lo[1], hi[1])
-            ax.set_zlim(lo[2], hi[2])
-            for axis in (ax.xaxis, ax.yaxis, ax.zaxis):  # about 3 ticks: each tick is costly to draw in 3D
-                axis.set_major_locator(MaxNLocator(nbins=2))
-            ax.set_xlabel(in_mesh_units(axis_names[0]), fontsize="small")
-            ax.set_ylabel(in_mesh_units(axis_names[1]), fontsize="small")
-            ax.set_zlabel(in_mesh_units(axis_names[2] if len(axis_names) > 2 else "z"), fontsize="small")
+            draw_surface_in_box(ax, points, elements, bounds=(lo, hi), axis_names=names)
             ax.set_title(label(step), fontsize="small")
     if title:
         fig.suptitle(title)
