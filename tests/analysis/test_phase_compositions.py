@@ -129,21 +129,25 @@ def test_equilibrium_gap_is_nan_when_a_value_is_missing():
     assert np.isnan(equilibrium_gap(0.1, 0.9, float("nan"), float("nan")))
 
 
-@pytest.mark.parametrize("kind", ["quad", "triangle"])
-def test_bulk_cells_from_the_widths_distances_match_the_search_and_the_analytic_distance(kind):
-    # a tanh drop of radius 0.3: the analytic distance to the interface is |r - 0.3| (a circle)
+def _searched_and_reused(mesh, c_point, *, widths):
+    """Cell distances by their own search and from the width estimators' point distances; the reach."""
     from phasegauge.analysis.interface import find_interface, interface_metrics
     from phasegauge.analysis.thermo import interface_distance
 
-    mesh = grid_mesh((90, 90), kind=kind)
-    r_point = np.hypot(*(mesh.coordinates - 0.5).T)
-    c_point = _logistic(0.3 - r_point)
     c_cell = mesh.point_to_cell(c_point)
     contour = find_interface(mesh, c_point)
     metrics, measured = interface_metrics(mesh, c_point, contour=contour, return_distances=True)
-    reach = 2.0 * metrics["interface_width"]
+    reach = widths * metrics["interface_width"]
     searched = interface_distance(mesh, c_cell, contour, reach=reach)
-    reused = interface_distance(mesh, c_cell, contour, reach=reach, measured=measured)
+    return searched, interface_distance(mesh, c_cell, contour, reach=reach, measured=measured), reach
+
+
+@pytest.mark.parametrize("kind", ["quad", "triangle"])
+def test_bulk_cells_from_the_widths_distances_match_the_search_and_the_analytic_distance(kind):
+    # a tanh drop of radius 0.3: the analytic distance to the interface is |r - 0.3| (a circle)
+    mesh = grid_mesh((90, 90), kind=kind)
+    r_point = np.hypot(*(mesh.coordinates - 0.5).T)
+    searched, reused, reach = _searched_and_reused(mesh, _logistic(0.3 - r_point), widths=2.0)
     # the same bulk cells on each side and the same sides (own search against the widths' distances)
     np.testing.assert_array_equal(searched > reach, reused > reach)
     np.testing.assert_array_equal(searched < -reach, reused < -reach)
@@ -192,18 +196,10 @@ def test_bucket_test_on_the_mesh_fixed_grid_agrees_with_brute_force():
 def test_bulk_cells_from_the_widths_distances_on_a_sphere_of_tetrahedra():
     # a tanh sphere of radius 0.3: the analytic distance is |r - 0.3|; cells settled by their corners'
     # distances may differ from their own search only within O(h^2 / R) of the bulk reach
-    from phasegauge.analysis.interface import find_interface, interface_metrics
-    from phasegauge.analysis.thermo import interface_distance
-
     n = 24
     mesh = grid_mesh((n, n, n), kind="tetra")
     c_point = 0.5 * (1 + np.tanh((0.3 - np.linalg.norm(mesh.coordinates - 0.5, axis=1)) / 0.06))
-    c_cell = mesh.point_to_cell(c_point)
-    contour = find_interface(mesh, c_point)
-    metrics, measured = interface_metrics(mesh, c_point, contour=contour, return_distances=True)
-    reach = 1.5 * metrics["interface_width"]
-    searched = interface_distance(mesh, c_cell, contour, reach=reach)
-    reused = interface_distance(mesh, c_cell, contour, reach=reach, measured=measured)
+    searched, reused, reach = _searched_and_reused(mesh, c_point, widths=1.5)
     np.testing.assert_array_equal(searched > 0, reused > 0)
     exact = np.abs(np.linalg.norm(mesh.cell_centroids - 0.5, axis=1) - 0.3)
     h = 1.0 / n
