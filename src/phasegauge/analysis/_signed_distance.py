@@ -134,7 +134,8 @@ def _maybe_near_cells(mesh, cells: np.ndarray, centres: np.ndarray, reach: float
     """:func:`_maybe_near` for the centroids of ``cells``, on the mesh's fixed bucket grid.
 
     The same two exact tests; the buckets of the centroids are found once per mesh instead of
-    every call (where the fixed grid is coarser than half of ``reach``, the grid of
+    every call, and the distance transform runs on the box of the centres' buckets grown by the
+    test's limit (where the fixed grid is coarser than half of ``reach``, the grid of
     :func:`_maybe_near` about the centres is used instead).
     """
     from scipy.ndimage import distance_transform_edt
@@ -144,9 +145,17 @@ def _maybe_near_cells(mesh, cells: np.ndarray, centres: np.ndarray, reach: float
         return _maybe_near(mesh.cell_centroids[cells], centres, reach)
     dim = centres.shape[1]
     shape = np.array(grid.shape)
-    marked = np.zeros(grid.shape, dtype=bool)
-    marked[tuple(np.clip(((centres - grid.lo) / grid.side).astype(np.int64), 0, shape - 1).T)] = True
-    close = distance_transform_edt(~marked) <= reach / grid.side + np.sqrt(dim) + 1e-9
+    at = np.clip(((centres - grid.lo) / grid.side).astype(np.int64), 0, shape - 1)
+    limit = reach / grid.side + np.sqrt(dim) + 1e-9  # in buckets
+    # the distance transform on the box of the marked buckets grown by the limit: a bucket
+    # outside it is farther than the limit from every mark along one axis alone
+    grow = int(np.ceil(limit)) + 1
+    box = tuple(slice(int(a), int(b)) for a, b in zip(np.maximum(at.min(axis=0) - grow, 0),
+                                                     np.minimum(at.max(axis=0) + grow + 1, shape)))
+    marked = np.zeros(tuple(s.stop - s.start for s in box), dtype=bool)
+    marked[tuple((at - [s.start for s in box]).T)] = True
+    close = np.zeros(grid.shape, dtype=bool)
+    close[box] = distance_transform_edt(~marked) <= limit
     near = np.zeros(cells.size, dtype=bool)
     kept = np.flatnonzero(close.ravel()[grid.flat[cells]])
     near[kept] = _any_within(mesh.cell_centroids[cells[kept]], centres, reach)
