@@ -127,3 +127,27 @@ def test_polygon_mesh_counts_and_sizes_equal_the_same_mesh_as_quads(tmp_path, ki
     descs = [describe_series(str(tmp_path / f / f"{f}_0.vtu")) for f in ("q", "p")]
     assert descs[0]["cells"] == descs[1]["cells"] == 48
     assert descs[0]["cell_size"] == pytest.approx(descs[1]["cell_size"], rel=1e-12)
+
+
+def test_pieces_stay_marked_beside_polyhedra_in_one_file(tmp_path):
+    # regression: a file with polyhedra (VTK 42) and convex point sets (VTK 41) lost the convex
+    # cells' piece marks when the polyhedra's tetrahedra were marked, so every piece of a split
+    # wedge counted as a cell of its own size
+    from phasegauge.meshgen import to_polyhedral_grid
+
+    poly = to_polyhedral_grid(grid_mesh((2, 2, 2))).cast_to_unstructured_grid()
+    wedges = grid_mesh((2, 2, 2), kind="wedge")
+    rng = np.random.default_rng(5)
+    cells = [rng.permutation(row) for row in wedges.blocks[0].connectivity]  # shuffled: split about the centre
+    flat = np.concatenate([[len(row), *row] for row in cells]).astype(np.int64)
+    convex = pv.UnstructuredGrid(flat, np.full(len(cells), CONVEX_POINT_SET, np.uint8), wedges.points + [2.0, 0, 0])
+    grid = poly.merge(convex, merge_points=False)
+    path = str(tmp_path / "mixed.vtu")
+    grid.save(path)
+    mesh = Series(path).read(0).mesh
+    assert mesh.n_whole_cells == grid.n_cells == 8 + 16
+    vtk_sizes = grid.compute_cell_sizes()["Volume"] ** (1 / 3)  # VTK's volumes of the cells [lib]
+    np.testing.assert_allclose(np.sort(np.unique(mesh.cell_sizes.round(12))), np.unique(vtk_sizes.round(12)),
+                               rtol=1e-9)
+    np.testing.assert_allclose(mesh.cell_sizes ** 3, np.where(mesh.cell_centroids[:, 0] > 1.5, 1 / 16, 1 / 8),
+                               rtol=1e-9)  # the halves of the 1/8 boxes (elementary geometry)

@@ -283,8 +283,10 @@ class PolyhedralRead:
         note = None
         if any(isinstance(name, type(CONVEX_POINT_SET)) for name, _ in blocks):
             note = convex_point_sets(raw).convex_point_sets  # the split's block stays the last
-        # the split cells' tetrahedra are pieces of them (cell sizes are the whole cells')
-        raw.cell_pieces = [None] * (len(raw.cells) - 1) + [split.source]
+        # the split cells' tetrahedra are pieces of them (cell sizes are the whole cells'), as are the
+        # pieces of convex point sets split beside them (marked by convex_point_sets)
+        earlier = getattr(raw, "cell_pieces", None) or [None] * len(raw.cells)
+        raw.cell_pieces = list(earlier[:-1]) + [split.source]
         words = f"{self.n_poly} polyhedral cells (VTK 42)"
         others = int(rows.size) - self.n_poly
         if others:
