@@ -207,3 +207,33 @@ def test_bulk_cells_from_the_widths_distances_on_a_sphere_of_tetrahedra():
     assert np.all(np.abs(exact[differ] - reach) < h * h / 0.3 + 0.05 * h), differ.sum()
     bulk = np.abs(reused) > reach
     assert bulk[exact > reach + h].all() and not bulk[exact < reach - h].any()
+
+
+@pytest.mark.parametrize("kind", ["quad", "triangle"])
+def test_cells_the_contour_crosses_are_not_bulk_with_a_reach_under_half_a_cell(kind):
+    # analytic: the distance of a cell centroid to a circle of radius 0.3 is |r - 0.3|. With a bulk reach
+    # under half a cell, the mean of the corners' distance magnitudes of a cell the contour crosses is
+    # about half a cell however near its centroid lies (|d| bends at the contour): such a cell must
+    # still come out nearer than reach, as its own search puts it. The search skips cells with no
+    # element centroid within reach (see interface_distance's Notes): scipy's brute-force distances
+    # to the element centroids pick the cells it covers
+    from scipy.spatial.distance import cdist
+
+    from phasegauge.analysis.interface import find_interface, interface_metrics
+    from phasegauge.analysis.thermo import interface_distance
+
+    n = 90
+    mesh = grid_mesh((n, n), kind=kind)
+    c_point = _logistic(0.3 - np.hypot(*(mesh.coordinates - 0.5).T))
+    c_cell = mesh.point_to_cell(c_point)
+    contour = find_interface(mesh, c_point)
+    _, measured = interface_metrics(mesh, c_point, contour=contour, return_distances=True)
+    exact = np.abs(np.hypot(*(mesh.cell_centroids - 0.5).T) - 0.3)
+    to_centre = cdist(mesh.cell_centroids, contour.centroids[:, :2]).min(axis=1)
+    h = 1.0 / n
+    for reach in (0.2 * h, 0.35 * h, 0.5 * h):
+        reused = interface_distance(mesh, c_cell, contour, reach=reach, measured=measured)
+        bulk = np.abs(reused) > reach
+        wrong = bulk & (exact < reach - 0.05 * h) & (to_centre <= reach)
+        assert not wrong.any(), (reach / h, int(wrong.sum()))
+        assert bulk[exact > reach + h].all()

@@ -76,3 +76,21 @@ def test_the_import_waits_for_a_spare_core(monkeypatch):
     child.join()
     monkeypatch.setattr(os, "getloadavg", lambda: (cores - 0.5, 0.0, 0.0))  # other programs keep the cores busy
     assert _spare_core(1, None) is False
+
+
+def test_a_run_goes_on_where_the_load_average_is_unobtainable(tmp_path, imports, monkeypatch):
+    # Python's documentation of os.getloadavg: "Raises OSError if the load average was unobtainable"
+    # (glibc's getloadavg fails where /proc is not mounted, as in some build sandboxes). The plotting
+    # import is only a speed-up: without a load figure the run counts no other programs' work.
+    import os
+
+    from phasegauge.run.measure import _spare_core
+
+    def unobtainable():
+        raise OSError("Load averages are unobtainable")
+
+    monkeypatch.setattr(os, "getloadavg", unobtainable)
+    cores = len(os.sched_getaffinity(0)) if hasattr(os, "sched_getaffinity") else os.cpu_count()
+    assert _spare_core(1, None) is (cores > 1)
+    measure(_discs(tmp_path, 3), "alpha", out=tmp_path / "out")
+    assert (tmp_path / "out" / "interface_width.png").exists()

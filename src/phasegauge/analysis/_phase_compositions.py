@@ -60,11 +60,13 @@ def interface_distance(mesh, c_cell, contour, *, level=0.5, reach=np.inf, measur
         (``interface_metrics(..., return_distances=True)``). A cell whose corners were all
         searched gets the mean of their distance magnitudes (a corner beyond the search's
         ``bound`` counts as ``bound``, a lower bound: such a cell is settled only as bulk, and
-        searched when the mean is within ``reach``). The distance is linear across a cell up
-        to O(h^2 / R) on an interface of curvature radius R, and both the corners' and a
-        centroid's own distances are these second-order nearest-plane estimates, so a cell
-        can fall on the other side of ``reach`` than its centroid's own search would put it
-        only within O(h^2 / R) of ``reach``. The other cells are searched as without it.
+        searched when the mean is within ``reach``). A cell the contour crosses is searched
+        when that mean lies beyond ``reach``: the magnitude bends at the contour, so there the
+        mean exceeds the centroid's distance (by up to about half a cell). Across any other
+        cell the distance is linear up to O(h^2 / R) on an interface of curvature radius R, and
+        both the corners' and a centroid's own distances are these second-order nearest-plane
+        estimates, so a cell can fall on the other side of ``reach`` than its centroid's own
+        search would put it only within O(h^2 / R) of ``reach``. The other cells are searched as without it.
         Cells with ``c`` below 0.01 that the search calls bulk through its thinned element set
         (see ``_signed_distance``) can come out nearer.
 
@@ -110,6 +112,10 @@ def interface_distance(mesh, c_cell, contour, *, level=0.5, reach=np.inf, measur
         if beyond.any():  # a corner beyond the bound only bounds the mean from below: search if not past reach
             nearer = np.flatnonzero(dist <= reach)
             rows = nearer[_any_corner(mesh, beyond, nearer)]
+        # a cell the contour crosses that its corners would settle beyond reach is searched: |d| bends
+        # at the contour, so there the corners' mean magnitude exceeds its centroid's distance
+        crossed = np.unique(contour.cells)
+        rows = np.concatenate([rows, crossed[dist[crossed] > reach]])
     if limited:  # cells with no element centroid within reach: nothing to search
         unknown = unknown[_maybe_near_cells(mesh, unknown, geometry.centroids[:, list(contour.plane_axes)], reach)]
     rows = np.concatenate([rows, unknown])

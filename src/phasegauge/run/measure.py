@@ -354,8 +354,12 @@ def _spare_core(workers: int, scheduler) -> bool:
     if scheduler:
         return scheduler != "local"
     cores = len(os.sched_getaffinity(0)) if hasattr(os, "sched_getaffinity") else (os.cpu_count() or 1)
-    # other programs' work: the last minute's load average (where the system gives one)
-    busy = os.getloadavg()[0] if hasattr(os, "getloadavg") else 0.0
+    # other programs' work: the last minute's load average (where the system gives one; os.getloadavg
+    # raises OSError where it is unobtainable, e.g. without /proc)
+    try:
+        busy = os.getloadavg()[0] if hasattr(os, "getloadavg") else 0.0
+    except OSError:
+        busy = 0.0
     return workers + busy < cores
 
 
