@@ -119,7 +119,7 @@ def convex_point_sets(raw):
     """
     from meshio import CellBlock
 
-    from ..model.convex_cells import ConvexCells, convert_convex_point_sets
+    from ..model.convex_cells import ConvexCells, convert_convex_point_sets, split_beside
 
     raw.convex_point_sets = None
     marked = [isinstance(b.type, _ConvexPointSetName) for b in raw.cells]
@@ -146,6 +146,8 @@ def convex_point_sets(raw):
         for name, arrays in raw.cell_data.items():
             values = np.asarray(arrays[i])
             new_data[name].extend(values[rows] for rows in out.source[start:])
+    # the hexahedra, wedges and pyramids meeting split cells are split alike, so shared faces conform
+    new_blocks, pieces, new_data = split_beside(points, new_blocks, pieces, new_data, out)
     if out.centre_corners:
         corners = out.centre_corners
         raw.points = np.vstack([points] + [points[c].mean(axis=1) for c in corners])

@@ -34,7 +34,9 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
-__all__ = ["ConvexCells", "convert_convex_point_sets"]
+from .cells import FACES, LINEAR_CORNERS
+
+__all__ = ["ConvexCells", "convert_convex_point_sets", "split_beside"]
 
 #: relative size of the smallest singular value below which corners count as one plane
 PLANAR_TOLERANCE = 1e-9
@@ -85,7 +87,7 @@ class ConvexCells:
             return
         self.blocks.append((cell_type, np.ascontiguousarray(cells, dtype=np.int64)))
         self.source.append(np.asarray(rows, dtype=np.int64))
-        self.split.append(count == "split")
+        self.split.append(count is not None)
         key = count or cell_type
         self.counts[key] = self.counts.get(key, 0) + (len(np.unique(rows)) if count else len(rows))
 
@@ -97,6 +99,9 @@ class ConvexCells:
         if self.counts.get("split"):
             parts.append(f"{self.counts['split']} split about their centre into "
                          f"{self.counts['split_pieces']} tetrahedra")
+        if self.counts.get("beside"):
+            parts.append(f"the {self.counts['beside']} hexahedra, wedges and pyramids beside them split the same "
+                         f"way into {self.counts['beside_pieces']} tetrahedra")
         return ", ".join(parts)
 
 
@@ -286,3 +291,140 @@ def _outline_edges(triangles: np.ndarray) -> np.ndarray:
     edges = np.concatenate([triangles[:, [0, 1]], triangles[:, [1, 2]], triangles[:, [2, 0]]])
     _, index, counts = np.unique(np.sort(edges, axis=1), axis=0, return_index=True, return_counts=True)
     return edges[index[counts == 1]]
+
+
+def split_beside(points: np.ndarray, blocks: list, pieces: list, data: dict, out: ConvexCells) -> tuple:
+    """Split the hexahedra, wedges and pyramids that meet split convex cells, so that faces conform.
+
+    A convex point set split about its centre cuts each hull face of four or more corners about
+    a face centre (:attr:`ConvexCells.face_centres`). An ordinary cell on the other side of such
+    a face (a hexahedron, wedge or pyramid of the file, or a convex point set recognised as a
+    hexahedron) would keep the face whole, and the two sides would not meet; splitting only that
+    neighbour would leave its own quad faces unmatched in turn. So every such cell joined to a
+    centred face through a chain of shared quad faces is split the same way: tetrahedra from its
+    centre (its corners' mean) over its faces, a triangular face whole, a quad face coned from its
+    face centre, one point for every cell that shares the face (keyed by its sorted corners, as
+    the convex cells' faces). Cells no such chain reaches stay whole (their faces meet whole
+    cells or triangles only); a mesh without face centres is returned as it is.
+
+    Parameters
+    ----------
+    points : ndarray of shape (n_points, 3)
+        The input points (without centres).
+    blocks : list of (str, ndarray of shape (m, k))
+        The mesh's blocks (meshio cell type names; higher-order cells by their corners).
+    pieces : list of (ndarray of shape (m,) or None)
+        Per block, the whole cell of each cell (None: each cell is whole).
+    data : dict of str to list of ndarray
+        Cell data, one array per block.
+    out : ConvexCells
+        The convex cells' split (its face centres are shared; the new centres are added after
+        those there, in :attr:`ConvexCells.centre_corners`).
+
+    Returns
+    -------
+    (blocks, pieces, data)
+        The same lists with each split block's cells replaced by the cells kept whole (if any)
+        and a block of tetrahedra marked as pieces of their cells.
+    """
+    chosen = _cells_to_split(blocks, out)
+    if chosen is None:
+        return blocks, pieces, data
+    new_blocks, new_pieces, new_data = [], [], {name: [] for name in data}
+    for b, (name, cells) in enumerate(blocks):
+        rows = chosen.get(b)
+        if rows is None:
+            new_blocks.append((name, cells))
+            new_pieces.append(pieces[b])
+            for key in data:
+                new_data[key].append(data[key][b])
+            continue
+        kind, corners = LINEAR_CORNERS.get(str(name), (str(name), None))
+        conn = np.asarray(cells, dtype=np.int64)
+        tets, owner = _cone_from_centres(points, kind, conn[rows] if corners is None else conn[rows][:, corners], out)
+        whole = np.ones(len(conn), dtype=bool)
+        whole[rows] = False
+        parts = ([(name, conn[whole], np.flatnonzero(whole))] if whole.any() else []) + [("tetra", tets, rows[owner])]
+        for cell_type, cells_kept, source in parts:
+            new_blocks.append((cell_type, cells_kept))
+            marked = pieces[b] is not None or cell_type == "tetra"
+            new_pieces.append((source if pieces[b] is None else pieces[b][source]) if marked else None)
+            for key in data:
+                new_data[key].append(np.asarray(data[key][b])[source])
+    return new_blocks, new_pieces, new_data
+
+
+def _cells_to_split(blocks: list, out: ConvexCells) -> dict | None:
+    """Per block, the rows of its hexahedra, wedges and pyramids joined to a centred face by shared
+    quad faces (connected components of the cell - quad face graph); None when there are none."""
+    from scipy.sparse import coo_matrix
+    from scipy.sparse.csgraph import connected_components
+
+    known = {key for key in out.face_centres if len(key) == 4}
+    if not known:
+        return None
+    keys, cell, spans, n = [], [], {}, 0
+    for b, (name, cells) in enumerate(blocks):
+        kind, corners = LINEAR_CORNERS.get(str(name), (str(name), None))
+        if kind not in ("hexahedron", "wedge", "pyramid") or len(cells) == 0:
+            continue
+        conn = np.asarray(cells, dtype=np.int64)
+        conn = conn if corners is None else conn[:, corners]
+        for face in FACES[kind]:
+            if len(face) == 4:
+                keys.append(np.sort(conn[:, list(face)], axis=1))
+                cell.append(n + np.arange(len(conn)))
+        spans[b] = (n, n + len(conn))
+        n += len(conn)
+    if not keys:
+        return None
+    faces, face_of = np.unique(np.concatenate(keys), axis=0, return_inverse=True)
+    centred = np.array([tuple(key) in known for key in faces.tolist()], dtype=bool)
+    if not centred.any():
+        return None
+    cell = np.concatenate(cell)
+    graph = coo_matrix((np.ones(cell.size, dtype=np.int8), (cell, n + face_of.ravel())),
+                       shape=(n + len(faces),) * 2)
+    _, label = connected_components(graph, directed=False)
+    split = np.isin(label[:n], label[n + np.flatnonzero(centred)])
+    chosen = {b: np.flatnonzero(split[lo:hi]) for b, (lo, hi) in spans.items()}
+    return {b: rows for b, rows in chosen.items() if rows.size} or None
+
+def _cone_from_centres(points: np.ndarray, kind: str, conn: np.ndarray, out: ConvexCells):
+    """Tetrahedra of one block of hexahedra, wedges or pyramids about cell and shared face centres."""
+    n = len(conn)
+    base = len(points) + out.n_centres  # the cell centres' first point number
+    cells = np.arange(n, dtype=np.int64)
+    quads = [face for face in FACES[kind] if len(face) == 4]
+    F = np.concatenate([conn[:, list(face)] for face in quads])  # (q * n, 4), face after face
+    keys, inverse = np.unique(np.sort(F, axis=1), axis=0, return_inverse=True)
+    inverse = inverse.ravel()
+    number = np.array([out.face_centres.get(tuple(key), -1) for key in keys.tolist()], dtype=np.int64)
+    new = number < 0
+    number[new] = base + n + np.arange(int(new.sum()))
+    out.face_centres.update(zip(map(tuple, keys[new].tolist()), number[new].tolist()))
+    centre = number[inverse]
+    owner_q = np.tile(cells, len(quads))
+    tets = [np.column_stack([F[:, i], F[:, (i + 1) % 4], centre, base + owner_q]) for i in range(4)]
+    owner = [owner_q] * 4
+    for face in FACES[kind]:
+        if len(face) == 3:
+            tets.append(np.column_stack([conn[:, list(face)], base + cells]))
+            owner.append(cells)
+    tets, owner = np.concatenate(tets), np.concatenate(owner)
+    # orientation from coordinates (positive volumes), as the convex cells' split
+    X = points[tets[:, :2]]  # (m, 2, 3): the edge on the face
+    face_xyz = np.empty((len(tets), 3))
+    on_face = np.concatenate([np.ones(4 * len(F), bool), np.zeros(len(tets) - 4 * len(F), bool)])
+    face_xyz[on_face] = np.tile(points[F].mean(axis=1), (4, 1))
+    face_xyz[~on_face] = points[tets[~on_face, 2]]
+    cell_xyz = points[conn].mean(axis=1)[owner]
+    p = np.concatenate([X, face_xyz[:, None], cell_xyz[:, None]], axis=1)
+    flip = _six_volumes(p) < 0
+    tets[flip, 0], tets[flip, 1] = tets[flip, 1].copy(), tets[flip, 0].copy()
+    out.centre_corners.append(conn)
+    if new.any():
+        out.centre_corners.append(keys[new])
+    out.counts["beside"] = out.counts.get("beside", 0) + n
+    out.counts["beside_pieces"] = out.counts.get("beside_pieces", 0) + len(tets)
+    return tets, owner
