@@ -112,6 +112,8 @@ MIXES = [
     ("hexahedron", "poly-hexahedron"),  # hexahedra beside the same cells as polyhedra
     ("hexahedron", "poly-wedge"),
     ("wedge", "poly-hexahedron"),  # a wedge beside a polyhedron
+    ("poly-hexahedron", "convex-wedge"),  # polyhedra beside convex point sets: one face centre for both
+    ("convex-hexahedron", "poly-hexahedron"),  # recognised hexahedra beside polyhedra
 ]
 
 
@@ -125,7 +127,9 @@ def grid_count():
 @pytest.mark.parametrize("kinds", MIXES, ids="+".join)
 def test_split_cells_beside_whole_cells_are_measured_as_one_mesh(tmp_path, kinds, grid_count):
     # regression: a hexahedron or wedge kept whole beside a convex point set cut about its face
-    # centres did not share the face with it: the ball across x = 0.5 counted as two droplets
+    # centres did not share the face with it: the ball across x = 0.5 counted as two droplets;
+    # beside polyhedra, the convex cells' face centres were other points than the polyhedra's:
+    # measure refused the mesh as overlapping (and counted every piece as a cell)
     points, parts, whole = _halves(kinds)
     path = _write(tmp_path / "mixed.vtu", points, parts)
     mesh = Series(path).read(0).mesh
@@ -160,3 +164,14 @@ def test_mesh_without_split_cells_is_kept_as_it_is(tmp_path):
     mesh = Series(_write(tmp_path / "whole.vtu", points, parts)).read(0).mesh
     assert mesh.cell_type_counts == {"hexahedron": whole}
     assert mesh.cell_parents is None
+
+
+def test_hexahedra_no_quad_face_joins_to_split_cells_stay_whole(tmp_path):
+    points, parts, whole = _halves(("hexahedron", "convex-wedge"))
+    far = grid_mesh((2, 2, 2), bounds=[(2, 3), (0, 1), (0, 1)])  # a block apart from the cube
+    hexahedra = far.blocks[0].connectivity + len(points)
+    path = _write(tmp_path / "apart.vtu", np.vstack([points, far.points]), parts + [("hexahedron", hexahedra)])
+    mesh = Series(path).read(0).mesh
+    assert mesh.cell_type_counts["hexahedron"] == 8  # the block apart is kept as it is
+    assert mesh.n_whole_cells == whole + 8
+    np.testing.assert_allclose(mesh.total_measure, 2.0, rtol=1e-12)  # the cube and the block apart

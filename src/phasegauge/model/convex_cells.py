@@ -261,7 +261,7 @@ def _split_about_centre(points, cells, rows, out: ConvexCells) -> None:
     face_corners = [np.array([k for k in keys if len(k) == n], dtype=np.int64) for n in sorted({len(k) for k in keys})]
     earlier = np.zeros((out.n_centres, 3))  # centres of earlier blocks: only their shared face centres matter
     for key, at in out.face_centres.items():
-        if at < base:
+        if len(points) <= at < base:  # (centres among the points, as a polyhedra split's, are there)
             earlier[at - len(points)] = points[list(key)].mean(axis=0)
     coords = np.vstack([points, earlier, centres] + [points[f].mean(axis=1) for f in face_corners])
     flip = _six_volumes(coords[tets]) < 0
