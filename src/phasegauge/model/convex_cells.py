@@ -18,6 +18,10 @@ corner order of the ordinary cell:
   the split cell on its other side, so neighbours cut a shared face alike; every piece keeps
   the cell's values, so integrals stay exact, and is marked as a piece of its cell.
 
+The hexahedra, wedges and pyramids that quad faces join to such a face centre (directly or
+through other such cells) are split the same way (:func:`split_beside`), so the mesh conforms
+where ordinary cells meet split ones; a mesh without split cells is not touched.
+
 Only the unrecognised cells are handled one at a time (Qhull per cell); the common cases are
 vectorised.
 
@@ -59,7 +63,8 @@ class ConvexCells:
     counts : dict of str to int
         How the input cells were read: ``'triangle', 'quad', 'polygon', 'tetra', 'hexahedron'``
         (recognised by their corners) and ``'split'`` (split about their centre), with
-        ``'split_pieces'`` the number of tetrahedra these became.
+        ``'split_pieces'`` the number of tetrahedra these became; ``'beside'`` and ``'beside_pieces'``
+        the ordinary cells split with them (:func:`split_beside`) and their tetrahedra.
     centre_corners : list of ndarray of shape (j, k)
         The corners of the split cells, in the order their centres are numbered after the
         input points (a centre's point values are its corners' mean).
@@ -100,8 +105,8 @@ class ConvexCells:
             parts.append(f"{self.counts['split']} split about their centre into "
                          f"{self.counts['split_pieces']} tetrahedra")
         if self.counts.get("beside"):
-            parts.append(f"the {self.counts['beside']} hexahedra, wedges and pyramids beside them split the same "
-                         f"way into {self.counts['beside_pieces']} tetrahedra")
+            parts.append(f"the {self.counts['beside']} hexahedra, wedges and pyramids joined to them by quad faces "
+                         f"split the same way into {self.counts['beside_pieces']} tetrahedra")
         return ", ".join(parts)
 
 
