@@ -365,8 +365,7 @@ def _cells_to_split(blocks: list, out: ConvexCells) -> dict | None:
     from scipy.sparse import coo_matrix
     from scipy.sparse.csgraph import connected_components
 
-    known = {key for key in out.face_centres if len(key) == 4}
-    if not known:
+    if not any(len(key) == 4 for key in out.face_centres):
         return None
     keys, cell, spans, n = [], [], {}, 0
     for b, (name, cells) in enumerate(blocks):
@@ -384,7 +383,7 @@ def _cells_to_split(blocks: list, out: ConvexCells) -> dict | None:
     if not keys:
         return None
     faces, face_of = np.unique(np.concatenate(keys), axis=0, return_inverse=True)
-    centred = np.array([tuple(key) in known for key in faces.tolist()], dtype=bool)
+    centred = _centre_numbers(faces, out.face_centres) >= 0
     if not centred.any():
         return None
     cell = np.concatenate(cell)
@@ -404,7 +403,7 @@ def _cone_from_centres(points: np.ndarray, kind: str, conn: np.ndarray, out: Con
     F = np.concatenate([conn[:, list(face)] for face in quads])  # (q * n, 4), face after face
     keys, inverse = np.unique(np.sort(F, axis=1), axis=0, return_inverse=True)
     inverse = inverse.ravel()
-    number = np.array([out.face_centres.get(tuple(key), -1) for key in keys.tolist()], dtype=np.int64)
+    number = _centre_numbers(keys, out.face_centres)
     new = number < 0
     number[new] = base + n + np.arange(int(new.sum()))
     out.face_centres.update(zip(map(tuple, keys[new].tolist()), number[new].tolist()))
@@ -433,3 +432,17 @@ def _cone_from_centres(points: np.ndarray, kind: str, conn: np.ndarray, out: Con
     out.counts["beside"] = out.counts.get("beside", 0) + n
     out.counts["beside_pieces"] = out.counts.get("beside_pieces", 0) + len(tets)
     return tets, owner
+
+
+def _centre_numbers(keys: np.ndarray, face_centres: dict) -> np.ndarray:
+    """The point number of the face centre of each sorted quad ``keys`` row (n, 4), -1 where none."""
+    known = [key for key in face_centres if len(key) == 4]
+    number = np.full(len(keys), -1, dtype=np.int64)
+    if not known or len(keys) == 0:
+        return number
+    table = np.array(known, dtype=np.int64)
+    _, where = np.unique(np.vstack([table, keys]), axis=0, return_inverse=True)
+    where = where.ravel()
+    slot = np.full(int(where.max()) + 1, -1, dtype=np.int64)
+    slot[where[:len(table)]] = [face_centres[key] for key in known]
+    return slot[where[len(table):]]
