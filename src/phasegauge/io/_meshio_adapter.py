@@ -114,12 +114,14 @@ def convex_point_sets(raw):
     Recognised cells keep their row of cell data; cells split about their centre repeat it on
     every piece, are marked as pieces of their cell (``raw.cell_pieces``, which the mesh keeps as
     :attr:`Mesh.cell_parents`: cell sizes and counts are the whole cells'), and their centres are
-    added as points (point data: the corners' mean). How the cells were read is kept as
-    ``raw.convex_point_sets`` (a phrase), else None.
+    added as points (point data: the corners' mean); ``raw.face_centres``, when set, names face
+    centres among the points already (a polyhedra split's), shared the same way. The hexahedra,
+    wedges and pyramids that meet split cells are split too (:func:`split_beside`). How the
+    cells were read is kept as ``raw.convex_point_sets`` (a phrase), else None.
     """
     from meshio import CellBlock
 
-    from ..model.convex_cells import ConvexCells, convert_convex_point_sets
+    from ..model.convex_cells import ConvexCells, convert_convex_point_sets, split_beside
 
     raw.convex_point_sets = None
     marked = [isinstance(b.type, _ConvexPointSetName) for b in raw.cells]
@@ -127,7 +129,7 @@ def convex_point_sets(raw):
         return raw
     new_blocks, new_data, pieces = [], {name: [] for name in raw.cell_data}, []
     earlier = getattr(raw, "cell_pieces", None) or [None] * len(raw.cells)
-    out = ConvexCells()
+    out = ConvexCells(face_centres=dict(getattr(raw, "face_centres", None) or {}))  # centres already there
     points = np.asarray(raw.points, dtype=np.float64)
     if points.shape[1] < 3:
         points = np.hstack([points, np.zeros((len(points), 3 - points.shape[1]))])
@@ -146,6 +148,8 @@ def convex_point_sets(raw):
         for name, arrays in raw.cell_data.items():
             values = np.asarray(arrays[i])
             new_data[name].extend(values[rows] for rows in out.source[start:])
+    # the hexahedra, wedges and pyramids meeting split cells are split alike, so shared faces conform
+    new_blocks, pieces, new_data = split_beside(points, new_blocks, pieces, new_data, out)
     if out.centre_corners:
         corners = out.centre_corners
         raw.points = np.vstack([points] + [points[c].mean(axis=1) for c in corners])

@@ -282,6 +282,10 @@ class PolyhedralRead:
         raw = new_mesh(points, blocks, point_data=point_data, cell_data=cell_data, field_data=self.field_data)
         note = None
         if any(isinstance(name, type(CONVEX_POINT_SET)) for name, _ in blocks):
+            # convex cells split about their faces share the polyhedra's face centres
+            bounds = split.centre_offsets[:split.n_face_centres + 1]
+            raw.face_centres = {tuple(sorted(split.centre_points[a:b].tolist())): split.n_points + j
+                                for j, (a, b) in enumerate(zip(bounds[:-1], bounds[1:]))}
             note = convex_point_sets(raw).convex_point_sets  # the split's block stays the last
         # the split cells' tetrahedra are pieces of them (cell sizes are the whole cells'), as are the
         # pieces of convex point sets split beside them (marked by convex_point_sets)

@@ -18,6 +18,10 @@ corner order of the ordinary cell:
   the split cell on its other side, so neighbours cut a shared face alike; every piece keeps
   the cell's values, so integrals stay exact, and is marked as a piece of its cell.
 
+The hexahedra, wedges and pyramids that quad faces join to such a face centre (directly or
+through other such cells) are split the same way (:func:`split_beside`), so the mesh conforms
+where ordinary cells meet split ones; a mesh without split cells is not touched.
+
 Only the unrecognised cells are handled one at a time (Qhull per cell); the common cases are
 vectorised.
 
@@ -34,7 +38,9 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
-__all__ = ["ConvexCells", "convert_convex_point_sets"]
+from .cells import FACES, LINEAR_CORNERS
+
+__all__ = ["ConvexCells", "convert_convex_point_sets", "split_beside"]
 
 #: relative size of the smallest singular value below which corners count as one plane
 PLANAR_TOLERANCE = 1e-9
@@ -57,7 +63,8 @@ class ConvexCells:
     counts : dict of str to int
         How the input cells were read: ``'triangle', 'quad', 'polygon', 'tetra', 'hexahedron'``
         (recognised by their corners) and ``'split'`` (split about their centre), with
-        ``'split_pieces'`` the number of tetrahedra these became.
+        ``'split_pieces'`` the number of tetrahedra these became; ``'beside'`` and ``'beside_pieces'``
+        the ordinary cells split with them (:func:`split_beside`) and their tetrahedra.
     centre_corners : list of ndarray of shape (j, k)
         The corners of the split cells, in the order their centres are numbered after the
         input points (a centre's point values are its corners' mean).
@@ -85,7 +92,7 @@ class ConvexCells:
             return
         self.blocks.append((cell_type, np.ascontiguousarray(cells, dtype=np.int64)))
         self.source.append(np.asarray(rows, dtype=np.int64))
-        self.split.append(count == "split")
+        self.split.append(count is not None)
         key = count or cell_type
         self.counts[key] = self.counts.get(key, 0) + (len(np.unique(rows)) if count else len(rows))
 
@@ -97,6 +104,9 @@ class ConvexCells:
         if self.counts.get("split"):
             parts.append(f"{self.counts['split']} split about their centre into "
                          f"{self.counts['split_pieces']} tetrahedra")
+        if self.counts.get("beside"):
+            parts.append(f"the {self.counts['beside']} hexahedra, wedges and pyramids joined to them by quad faces "
+                         f"split the same way into {self.counts['beside_pieces']} tetrahedra")
         return ", ".join(parts)
 
 
@@ -256,7 +266,7 @@ def _split_about_centre(points, cells, rows, out: ConvexCells) -> None:
     face_corners = [np.array([k for k in keys if len(k) == n], dtype=np.int64) for n in sorted({len(k) for k in keys})]
     earlier = np.zeros((out.n_centres, 3))  # centres of earlier blocks: only their shared face centres matter
     for key, at in out.face_centres.items():
-        if at < base:
+        if len(points) <= at < base:  # (centres among the points, as a polyhedra split's, are there)
             earlier[at - len(points)] = points[list(key)].mean(axis=0)
     coords = np.vstack([points, earlier, centres] + [points[f].mean(axis=1) for f in face_corners])
     flip = _six_volumes(coords[tets]) < 0
@@ -286,3 +296,153 @@ def _outline_edges(triangles: np.ndarray) -> np.ndarray:
     edges = np.concatenate([triangles[:, [0, 1]], triangles[:, [1, 2]], triangles[:, [2, 0]]])
     _, index, counts = np.unique(np.sort(edges, axis=1), axis=0, return_index=True, return_counts=True)
     return edges[index[counts == 1]]
+
+
+def split_beside(points: np.ndarray, blocks: list, pieces: list, data: dict, out: ConvexCells) -> tuple:
+    """Split the hexahedra, wedges and pyramids that meet split convex cells, so that faces conform.
+
+    A convex point set split about its centre cuts each hull face of four or more corners about
+    a face centre (:attr:`ConvexCells.face_centres`). An ordinary cell on the other side of such
+    a face (a hexahedron, wedge or pyramid of the file, or a convex point set recognised as a
+    hexahedron) would keep the face whole, and the two sides would not meet; splitting only that
+    neighbour would leave its own quad faces unmatched in turn. So every such cell joined to a
+    centred face through a chain of shared quad faces is split the same way: tetrahedra from its
+    centre (its corners' mean) over its faces, a triangular face whole, a quad face coned from its
+    face centre, one point for every cell that shares the face (keyed by its sorted corners, as
+    the convex cells' faces). Cells no such chain reaches stay whole (their faces meet whole
+    cells or triangles only); a mesh without face centres is returned as it is.
+
+    Parameters
+    ----------
+    points : ndarray of shape (n_points, 3)
+        The input points (without centres).
+    blocks : list of (str, ndarray of shape (m, k))
+        The mesh's blocks (meshio cell type names; higher-order cells by their corners).
+    pieces : list of (ndarray of shape (m,) or None)
+        Per block, the whole cell of each cell (None: each cell is whole).
+    data : dict of str to list of ndarray
+        Cell data, one array per block.
+    out : ConvexCells
+        The convex cells' split (its face centres are shared; the new centres are added after
+        those there, in :attr:`ConvexCells.centre_corners`).
+
+    Returns
+    -------
+    (blocks, pieces, data)
+        The same lists with each split block's cells replaced by the cells kept whole (if any)
+        and a block of tetrahedra marked as pieces of their cells.
+    """
+    chosen = _cells_to_split(blocks, out)
+    if chosen is None:
+        return blocks, pieces, data
+    new_blocks, new_pieces, new_data = [], [], {name: [] for name in data}
+    for b, (name, cells) in enumerate(blocks):
+        rows = chosen.get(b)
+        if rows is None:
+            new_blocks.append((name, cells))
+            new_pieces.append(pieces[b])
+            for key in data:
+                new_data[key].append(data[key][b])
+            continue
+        kind, corners = LINEAR_CORNERS.get(str(name), (str(name), None))
+        conn = np.asarray(cells, dtype=np.int64)
+        tets, owner = _cone_from_centres(points, kind, conn[rows] if corners is None else conn[rows][:, corners], out)
+        whole = np.ones(len(conn), dtype=bool)
+        whole[rows] = False
+        parts = ([(name, conn[whole], np.flatnonzero(whole))] if whole.any() else []) + [("tetra", tets, rows[owner])]
+        for cell_type, cells_kept, source in parts:
+            new_blocks.append((cell_type, cells_kept))
+            marked = pieces[b] is not None or cell_type == "tetra"
+            new_pieces.append((source if pieces[b] is None else pieces[b][source]) if marked else None)
+            for key in data:
+                new_data[key].append(np.asarray(data[key][b])[source])
+    return new_blocks, new_pieces, new_data
+
+
+def _cells_to_split(blocks: list, out: ConvexCells) -> dict | None:
+    """Per block, the rows of its hexahedra, wedges and pyramids joined to a centred face by shared
+    quad faces (connected components of the cell - quad face graph); None when there are none."""
+    from scipy.sparse import coo_matrix
+    from scipy.sparse.csgraph import connected_components
+
+    if not any(len(key) == 4 for key in out.face_centres):
+        return None
+    keys, cell, spans, n = [], [], {}, 0
+    for b, (name, cells) in enumerate(blocks):
+        kind, corners = LINEAR_CORNERS.get(str(name), (str(name), None))
+        if kind not in ("hexahedron", "wedge", "pyramid") or len(cells) == 0:
+            continue
+        conn = np.asarray(cells, dtype=np.int64)
+        conn = conn if corners is None else conn[:, corners]
+        for face in FACES[kind]:
+            if len(face) == 4:
+                keys.append(np.sort(conn[:, list(face)], axis=1))
+                cell.append(n + np.arange(len(conn)))
+        spans[b] = (n, n + len(conn))
+        n += len(conn)
+    if not keys:
+        return None
+    faces, face_of = np.unique(np.concatenate(keys), axis=0, return_inverse=True)
+    centred = _centre_numbers(faces, out.face_centres) >= 0
+    if not centred.any():
+        return None
+    cell = np.concatenate(cell)
+    graph = coo_matrix((np.ones(cell.size, dtype=np.int8), (cell, n + face_of.ravel())),
+                       shape=(n + len(faces),) * 2)
+    _, label = connected_components(graph, directed=False)
+    split = np.isin(label[:n], label[n + np.flatnonzero(centred)])
+    chosen = {b: np.flatnonzero(split[lo:hi]) for b, (lo, hi) in spans.items()}
+    return {b: rows for b, rows in chosen.items() if rows.size} or None
+
+def _cone_from_centres(points: np.ndarray, kind: str, conn: np.ndarray, out: ConvexCells):
+    """Tetrahedra of one block of hexahedra, wedges or pyramids about cell and shared face centres."""
+    n = len(conn)
+    base = len(points) + out.n_centres  # the cell centres' first point number
+    cells = np.arange(n, dtype=np.int64)
+    quads = [face for face in FACES[kind] if len(face) == 4]
+    F = np.concatenate([conn[:, list(face)] for face in quads])  # (q * n, 4), face after face
+    keys, inverse = np.unique(np.sort(F, axis=1), axis=0, return_inverse=True)
+    inverse = inverse.ravel()
+    number = _centre_numbers(keys, out.face_centres)
+    new = number < 0
+    number[new] = base + n + np.arange(int(new.sum()))
+    out.face_centres.update(zip(map(tuple, keys[new].tolist()), number[new].tolist()))
+    centre = number[inverse]
+    owner_q = np.tile(cells, len(quads))
+    tets = [np.column_stack([F[:, i], F[:, (i + 1) % 4], centre, base + owner_q]) for i in range(4)]
+    owner = [owner_q] * 4
+    for face in FACES[kind]:
+        if len(face) == 3:
+            tets.append(np.column_stack([conn[:, list(face)], base + cells]))
+            owner.append(cells)
+    tets, owner = np.concatenate(tets), np.concatenate(owner)
+    # orientation from coordinates (positive volumes), as the convex cells' split
+    X = points[tets[:, :2]]  # (m, 2, 3): the edge on the face
+    face_xyz = np.empty((len(tets), 3))
+    on_face = np.concatenate([np.ones(4 * len(F), bool), np.zeros(len(tets) - 4 * len(F), bool)])
+    face_xyz[on_face] = np.tile(points[F].mean(axis=1), (4, 1))
+    face_xyz[~on_face] = points[tets[~on_face, 2]]
+    cell_xyz = points[conn].mean(axis=1)[owner]
+    p = np.concatenate([X, face_xyz[:, None], cell_xyz[:, None]], axis=1)
+    flip = _six_volumes(p) < 0
+    tets[flip, 0], tets[flip, 1] = tets[flip, 1].copy(), tets[flip, 0].copy()
+    out.centre_corners.append(conn)
+    if new.any():
+        out.centre_corners.append(keys[new])
+    out.counts["beside"] = out.counts.get("beside", 0) + n
+    out.counts["beside_pieces"] = out.counts.get("beside_pieces", 0) + len(tets)
+    return tets, owner
+
+
+def _centre_numbers(keys: np.ndarray, face_centres: dict) -> np.ndarray:
+    """The point number of the face centre of each sorted quad ``keys`` row (n, 4), -1 where none."""
+    known = [key for key in face_centres if len(key) == 4]
+    number = np.full(len(keys), -1, dtype=np.int64)
+    if not known or len(keys) == 0:
+        return number
+    table = np.array(known, dtype=np.int64)
+    _, where = np.unique(np.vstack([table, keys]), axis=0, return_inverse=True)
+    where = where.ravel()
+    slot = np.full(int(where.max()) + 1, -1, dtype=np.int64)
+    slot[where[:len(table)]] = [face_centres[key] for key in known]
+    return slot[where[len(table):]]

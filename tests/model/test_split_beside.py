@@ -1,0 +1,68 @@
+"""`convex_cells.split_beside`: ordinary cells meeting convex cells split about face centres.
+
+Outside checks: volumes of boxes, prisms and pyramids (elementary geometry); scipy's ConvexHull
+volume of each cell's corners [lib] as the second way to the pieces' volumes.
+"""
+
+import numpy as np
+import pytest
+from scipy.spatial import ConvexHull
+
+from phasegauge.meshgen import grid_mesh
+from phasegauge.model.convex_cells import convert_convex_point_sets, split_beside
+
+
+def _volumes(X, tets):
+    p = X[tets]
+    return np.einsum("ij,ij->i", np.cross(p[:, 1] - p[:, 0], p[:, 2] - p[:, 0]), p[:, 3] - p[:, 0]) / 6
+
+
+@pytest.mark.parametrize("kind", ["hexahedron", "wedge", "pyramid"])
+def test_cells_beside_split_ones_become_positive_pieces_of_their_volume(kind):
+    mesh = grid_mesh((2, 1, 1), kind=kind)  # two unit-half boxes side by side, as cells of `kind`
+    block = mesh.blocks[0]
+    X = mesh.points
+    right = X[block.connectivity].mean(axis=1)[:, 0] > 0.5
+    out = convert_convex_point_sets(X, block.connectivity[right][:, ::-1])  # the right half as convex sets
+    assert out.counts.get("split") or out.counts.get("hexahedron")
+    if not out.face_centres:  # hexahedra recognised: nothing split, nothing changes
+        blocks = [(kind, block.connectivity[~right])]
+        assert split_beside(X, blocks, [None], {"c": [np.zeros(len(blocks[0][1]))]}, out)[0] is blocks
+        return
+    blocks = [(kind, block.connectivity[~right])] + out.blocks
+    data = {"c": [np.arange(len(b[1]), dtype=float) for b in blocks]}
+    n_before = out.n_centres
+    new_blocks, pieces, new_data = split_beside(X, blocks, [None] + [None] * len(out.blocks), data, out)
+    left = block.connectivity[~right]
+    if kind == "pyramid":
+        # of the six pyramids about the left box's centre, only the one whose base is the shared
+        # face x = 1/2 meets the split cells through a quad face; the five others stay whole
+        assert new_blocks[0][0] == "pyramid" and len(new_blocks[0][1]) == 5
+        assert pieces[0] is None  # whole cells
+        is_kept = (left[:, None, :] == new_blocks[0][1][None]).all(axis=2).any(axis=1)
+        np.testing.assert_array_equal(new_data["c"][0], data["c"][0][is_kept])
+        new_blocks, pieces, new_data = new_blocks[1:], pieces[1:], {"c": new_data["c"][1:]}
+        split_rows = np.flatnonzero(~is_kept)
+        assert split_rows.size == 1 and np.allclose(X[left[split_rows[0], :4], 0], 0.5)
+    else:
+        split_rows = np.arange(len(left))  # every left cell meets the split cells through a quad face
+    assert new_blocks[0][0] == "tetra"
+    coords = np.vstack([X] + [X[c].mean(axis=1) for c in out.centre_corners])
+    assert out.n_centres > n_before
+    tets, owner = new_blocks[0][1], pieces[0]  # owner: the row of the cell in the input block
+    v = _volumes(coords, tets)
+    assert np.all(v > 0)  # positively oriented
+    whole = [ConvexHull(X[row]).volume for row in left]  # scipy [lib]
+    np.testing.assert_allclose(np.bincount(owner, weights=v, minlength=len(left))[split_rows],
+                               np.array(whole)[split_rows], rtol=1e-12)
+    np.testing.assert_allclose(sum(whole), 0.5, rtol=1e-12)  # the left half of the unit box
+    np.testing.assert_array_equal(new_data["c"][0], data["c"][0][owner])  # each piece its cell's value
+
+
+def test_a_mesh_without_face_centres_is_returned_as_it_is():
+    mesh = grid_mesh((2, 2, 2))
+    out = convert_convex_point_sets(mesh.points, mesh.blocks[0].connectivity)  # recognised hexahedra
+    assert not out.face_centres
+    blocks = [("hexahedron", mesh.blocks[0].connectivity)]
+    result = split_beside(mesh.points, blocks, [None], {}, out)
+    assert result[0] is blocks and out.n_centres == 0
