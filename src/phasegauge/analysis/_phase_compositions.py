@@ -114,8 +114,8 @@ def interface_distance(mesh, c_cell, contour, *, level=0.5, reach=np.inf, measur
             rows = nearer[_any_corner(mesh, beyond, nearer)]
         # a cell the contour crosses that its corners would settle beyond reach is searched: |d| bends
         # at the contour, so there the corners' mean magnitude exceeds its centroid's distance
-        crossed = np.unique(contour.cells)
-        rows = np.concatenate([rows, crossed[dist[crossed] > reach]])
+        crossed = contour.cells[dist[contour.cells] > reach]  # (usually none: no sort of every element's cell)
+        rows = np.concatenate([rows, np.unique(crossed)])
     if limited:  # cells with no element centroid within reach: nothing to search
         unknown = unknown[_maybe_near_cells(mesh, unknown, geometry.centroids[:, list(contour.plane_axes)], reach)]
     rows = np.concatenate([rows, unknown])
