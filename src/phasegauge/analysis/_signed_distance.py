@@ -54,8 +54,6 @@ def _maybe_near(points: np.ndarray, centres: np.ndarray, reach: float) -> np.nda
     :func:`_nearest_plane_distance`; whether any centre lies that near does not depend on the
     tree). A search bounded by ``reach`` finds nothing for the points called far.
     """
-    from scipy.ndimage import distance_transform_edt
-
     near = np.zeros(points.shape[0], dtype=bool)
     if centres.shape[0] == 0 or points.shape[0] == 0:
         return near
@@ -63,26 +61,48 @@ def _maybe_near(points: np.ndarray, centres: np.ndarray, reach: float) -> np.nda
     lo = centres.min(axis=0) - reach
     hi = centres.max(axis=0) + reach
     extent = hi - lo
-    buckets = _MAX_BUCKETS
-    side = max(0.125 * reach, float(np.prod(extent) / buckets) ** (1.0 / dim))
+    side = max(0.125 * reach, float(np.prod(extent) / _MAX_BUCKETS) ** (1.0 / dim))
     shape = np.maximum(np.ceil(extent / side).astype(np.int64), 1)
-    marked = np.zeros(tuple(shape), dtype=bool)
-    marked[tuple(np.minimum(((centres - lo) / side).astype(np.int64), shape - 1).T)] = True
-    # buckets whose centre lies within reach + s sqrt(d) of a marked bucket's centre (in buckets)
-    close = distance_transform_edt(~marked) <= reach / side + np.sqrt(dim) + 1e-9
-    # the flat bucket index of every point (meaningless outside the grown box)
-    flat = np.zeros(points.shape[0], dtype=np.int64)
+    close = _close_buckets(_bucket_of(centres, lo, side, shape), shape, reach / side + np.sqrt(dim) + 1e-9)
     outside = np.zeros(points.shape[0], dtype=bool)
     for axis in range(dim):
-        x = points[:, axis]
-        outside |= (x < lo[axis]) | (x > hi[axis])
-        q = np.minimum(((x - lo[axis]) / side).astype(np.int64), shape[axis] - 1)
-        flat *= shape[axis]
-        flat += q
+        outside |= (points[:, axis] < lo[axis]) | (points[:, axis] > hi[axis])
     kept = np.flatnonzero(~outside)
-    kept = kept[close.ravel()[flat[kept]]]
+    kept = kept[close.ravel()[_flat_bucket(points[kept], lo, side, shape)]]
     near[kept] = _any_within(points[kept], centres, reach)
     return near
+
+
+def _bucket_of(points: np.ndarray, lo: np.ndarray, side: float, shape) -> np.ndarray:
+    """The bucket index along each axis of each point (clipped to the grid), shape (n, dim)."""
+    return np.clip(((points - lo) / side).astype(np.int64), 0, np.asarray(shape) - 1)
+
+
+def _flat_bucket(points: np.ndarray, lo: np.ndarray, side: float, shape) -> np.ndarray:
+    """The flat (C-order) bucket index of each point, clipped to the grid, one axis at a time."""
+    flat = np.zeros(points.shape[0], dtype=np.int64)
+    for axis in range(points.shape[1]):
+        flat *= shape[axis]
+        flat += np.clip(((points[:, axis] - lo[axis]) / side).astype(np.int64), 0, shape[axis] - 1)
+    return flat
+
+
+def _close_buckets(at: np.ndarray, shape, limit: float) -> np.ndarray:
+    """Buckets whose centre lies within ``limit`` buckets of a marked bucket's centre (marks: ``at``).
+
+    The Euclidean distance transform runs on the box of the marks grown by the limit: a bucket
+    outside it is farther than the limit from every mark along one axis alone.
+    """
+    from scipy.ndimage import distance_transform_edt
+
+    grow = int(np.ceil(limit)) + 1
+    box = tuple(slice(int(a), int(b)) for a, b in zip(np.maximum(at.min(axis=0) - grow, 0),
+                                                     np.minimum(at.max(axis=0) + grow + 1, shape)))
+    marked = np.zeros(tuple(s.stop - s.start for s in box), dtype=bool)
+    marked[tuple((at - [s.start for s in box]).T)] = True
+    close = np.zeros(tuple(int(n) for n in shape), dtype=bool)
+    close[box] = distance_transform_edt(~marked) <= limit
+    return close
 
 
 def _any_within(points: np.ndarray, centres: np.ndarray, reach: float) -> np.ndarray:
@@ -120,11 +140,7 @@ def _centroid_buckets(mesh) -> _CentroidBuckets:
         side = float(np.prod(extent) / _MAX_BUCKETS) ** (1.0 / dim)
         side = max(side, float(extent.max()) / 4096.0)  # a flat box: not more buckets along its long side
         shape = np.maximum(np.ceil(extent / side).astype(np.int64), 1)
-        flat = np.zeros(mesh.n_cells, dtype=np.int64)
-        cent = mesh.cell_centroids
-        for axis in range(dim):
-            flat *= shape[axis]
-            flat += np.clip(((cent[:, axis] - lo[axis]) / side).astype(np.int64), 0, shape[axis] - 1)
+        flat = _flat_bucket(mesh.cell_centroids, lo, side, shape)
         return _CentroidBuckets(lo, side, tuple(int(n) for n in shape), flat.astype(np.int32))
 
     return mesh.memo("centroid_buckets", compute)
@@ -134,28 +150,14 @@ def _maybe_near_cells(mesh, cells: np.ndarray, centres: np.ndarray, reach: float
     """:func:`_maybe_near` for the centroids of ``cells``, on the mesh's fixed bucket grid.
 
     The same two exact tests; the buckets of the centroids are found once per mesh instead of
-    every call, and the distance transform runs on the box of the centres' buckets grown by the
-    test's limit (where the fixed grid is coarser than half of ``reach``, the grid of
+    every call (where the fixed grid is coarser than half of ``reach``, the grid of
     :func:`_maybe_near` about the centres is used instead).
     """
-    from scipy.ndimage import distance_transform_edt
-
     grid = _centroid_buckets(mesh)
     if centres.shape[0] == 0 or cells.size == 0 or not grid.side <= 0.5 * reach:
         return _maybe_near(mesh.cell_centroids[cells], centres, reach)
-    dim = centres.shape[1]
-    shape = np.array(grid.shape)
-    at = np.clip(((centres - grid.lo) / grid.side).astype(np.int64), 0, shape - 1)
-    limit = reach / grid.side + np.sqrt(dim) + 1e-9  # in buckets
-    # the distance transform on the box of the marked buckets grown by the limit: a bucket
-    # outside it is farther than the limit from every mark along one axis alone
-    grow = int(np.ceil(limit)) + 1
-    box = tuple(slice(int(a), int(b)) for a, b in zip(np.maximum(at.min(axis=0) - grow, 0),
-                                                     np.minimum(at.max(axis=0) + grow + 1, shape)))
-    marked = np.zeros(tuple(s.stop - s.start for s in box), dtype=bool)
-    marked[tuple((at - [s.start for s in box]).T)] = True
-    close = np.zeros(grid.shape, dtype=bool)
-    close[box] = distance_transform_edt(~marked) <= limit
+    limit = reach / grid.side + np.sqrt(centres.shape[1]) + 1e-9  # in buckets
+    close = _close_buckets(_bucket_of(centres, grid.lo, grid.side, grid.shape), grid.shape, limit)
     near = np.zeros(cells.size, dtype=bool)
     kept = np.flatnonzero(close.ravel()[grid.flat[cells]])
     near[kept] = _any_within(mesh.cell_centroids[cells[kept]], centres, reach)
