@@ -87,8 +87,9 @@ def _well_posed(A, count, d):
     return (count > d + 1) & (np.abs(det) > 1e-10 * np.maximum(diag, 1e-300) ** (d + 1))
 
 
-def _stencil(mesh: Mesh):
-    return mesh.memo("point_stencil", lambda: point_stencil(mesh))
+def _stencil(mesh: Mesh, keep: bool = True):
+    """The mesh's :func:`point_stencil` (through ``mesh.memo``; ``keep=False``: not kept if new)."""
+    return mesh.memo("point_stencil", lambda: point_stencil(mesh), keep=keep)
 
 
 def point_fit(mesh: Mesh) -> PointFit:
@@ -96,7 +97,7 @@ def point_fit(mesh: Mesh) -> PointFit:
     it is made from is not kept)."""
 
     def compute():
-        rows, cols, dx, w, indptr = mesh.memo("point_stencil", lambda: point_stencil(mesh), keep=False)
+        rows, cols, dx, w, indptr = _stencil(mesh, keep=False)
         d, n = mesh.dimension, mesh.n_points
         nonempty = np.flatnonzero(np.diff(indptr) > 0)
         starts = indptr[:-1][nonempty]
