@@ -29,6 +29,7 @@ from __future__ import annotations
 import argparse
 import json
 import os
+import shutil
 import sys
 import tempfile
 import time
@@ -46,13 +47,6 @@ COLUMNS = ("kind", "cells", "baseline s (cpu)", "measure s (cpu)", "measure / ba
            "previous: measure / baseline", "previous: us per cell-step", "previous: peak / step bytes")
 
 
-def _warm(folder: str) -> None:
-    for name in sorted(os.listdir(folder)):
-        with open(os.path.join(folder, name), "rb") as handle:
-            while handle.read(1 << 24):
-                pass
-
-
 def run_measure_kind(folder: str, kind: str, millions: float, steps: int) -> dict:
     """``bench_measure.py``'s baseline and serial jobs on one series; the figures of one row."""
     info = bench_measure.build(folder, kind, millions, steps)
@@ -66,7 +60,7 @@ def run_measure_kind(folder: str, kind: str, millions: float, steps: int) -> dic
 def run_polyhedra(folder: str, millions: float, steps: int) -> dict:
     """``bench_polyhedra.py``'s baseline and measure jobs on the polyhedra; the figures of one row."""
     info = bench_polyhedra.build(folder, millions, steps)
-    _warm(info["polyhedra"])
+    bench_measure._warm_file_cache(os.path.join(info["polyhedra"], ""))  # the files of that folder
     base = bench_polyhedra.run_child("baseline", info["polyhedra"])
     ser = bench_polyhedra.run_child("polyhedra", info["polyhedra"])
     return _row("polyhedron", info["cells"], base, ser, ser["peak"] / info["step_bytes"])
@@ -130,9 +124,7 @@ def main(argv=None) -> None:
             print(f"{kind} {row['cells']} cells: measure / baseline {row['measure_s'] / row['baseline_s']:.2f} "
                   f"(cpu {row['measure_cpu'] / row['baseline_cpu']:.2f}), {row['us_per_cell_step']:.2f} us per "
                   f"cell-step, peak {row['peak_x_step']:.1f}x step ({time.perf_counter() - start:.0f} s)", flush=True)
-            if not args.keep:
-                import shutil
-
+            if not args.keep:  # a series' files are not needed once its row is measured
                 shutil.rmtree(sub, ignore_errors=True)
     print()
     print(table(rows, previous))
@@ -140,8 +132,6 @@ def main(argv=None) -> None:
         with open(args.json, "w") as handle:
             json.dump(rows, handle, indent=1)
     if not args.keep:
-        import shutil
-
         shutil.rmtree(folder, ignore_errors=True)
 
 
