@@ -71,7 +71,7 @@ def test_snapshot_of_a_sphere_shows_its_disc():
     height = pixels.shape[0]
     # the silhouette sits where the projection puts the sphere's centre (image rows run downwards)
     assert cols.mean() == pytest.approx(cx, abs=2) and (height - rows).mean() == pytest.approx(cy, abs=2)
-    # a disc: every lit pixel within the radius (plus a pixel), and the disc filled
+    # a disc: every lit pixel within the radius (plus a pixel); with the area above, the disc is filled
     assert np.hypot(cols + 0.5 - cx, height - rows - 0.5 - cy).max() < radius + 2
 
 

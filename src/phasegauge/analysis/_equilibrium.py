@@ -31,6 +31,13 @@ EQUILIBRIUM_KEYS = ("chemical_potential_mean", "chemical_potential_spread_max", 
                     "free_energy", "gradient_energy", "interfacial_tension")
 
 
+def _along(ndim: int, axis: int, part: slice) -> tuple:
+    """The index taking ``part`` of ``axis`` (all of the other axes) of an array of ``ndim`` axes."""
+    index = [slice(None)] * ndim
+    index[axis] = part
+    return tuple(index)
+
+
 def _nan() -> dict:
     return {key: float("nan") for key in EQUILIBRIUM_KEYS}
 
@@ -93,19 +100,15 @@ def equilibrium_metrics(mesh: Mesh, field_cell, model, *, kappa: float, periodic
     term = np.empty_like(phi)
     for k, (step, mesh_axis) in enumerate(zip(h, grid.mesh_axes)):
         wrapped = mesh_axis in wrap
-
-        def at(part, k=k):  # a slice of the axis k
-            index = [slice(None)] * phi.ndim
-            index[k] = part
-            return tuple(index)
-
-        first, last = at(slice(0, 1)), at(slice(-1, None))
+        # along the axis k: the first and last layers, all but the first, all but the last
+        first, last, rest, head = (_along(phi.ndim, k, part) for part in
+                                   (slice(0, 1), slice(-1, None), slice(1, None), slice(None, -1)))
         # (ahead - 2 phi + behind) / h^2 in place, term by term in that order; beyond the
         # boundary the cell itself (no flux) or, on a periodic axis, the far end
         np.multiply(phi, 2.0, out=term)
-        np.subtract(phi[at(slice(1, None))], term[at(slice(None, -1))], out=term[at(slice(None, -1))])
+        np.subtract(phi[rest], term[head], out=term[head])
         np.subtract(phi[first] if wrapped else phi[last], term[last], out=term[last])
-        term[at(slice(1, None))] += phi[at(slice(None, -1))]
+        term[rest] += phi[head]
         term[first] += phi[last] if wrapped else phi[first]
         term /= step ** 2
         lap += term

@@ -148,13 +148,12 @@ def plot_interface_snapshots(interfaces_by_step, *, bounds, axis_names=("x", "y"
         fig = new_figure(3.8 * cols, 3.6 * rows, constrained=False)
         fig.subplots_adjust(left=0.01, right=0.99, bottom=0.01, top=0.95 if not title else 0.9, wspace=0.04,
                             hspace=0.1)
-        names = tuple(axis_names) + ("x", "y", "z")[len(axis_names):]
         for i, step in enumerate(steps):
             ax = fig.add_subplot(rows, cols, i + 1)
             points, elements = interfaces_by_step[step]
             if len(elements):
                 points, elements = coarsened_surface(points, elements, max_triangles, bounds=(lo, hi))
-            draw_surface_in_box(ax, points, elements, bounds=(lo, hi), axis_names=names)
+            draw_surface_in_box(ax, points, elements, bounds=(lo, hi), axis_names=axis_names)
             ax.set_title(label(step), fontsize="small")
     if title:
         fig.suptitle(title)

@@ -282,8 +282,8 @@ def assemble(series, results: list, options, *, notes=(), feed: TrackingFeed | N
                                 cells_across=cells, physical_diffusivity=options.diffusivity)
     from ._mixture import mixture_findings
 
-    dimension = done[0].dimension if done else None
-    found = findings(steps, droplets, audit, options, skipped, dimension=dimension)
+    # done is never empty here (no step analysed raised above; the first step is never skipped after)
+    found = findings(steps, droplets, audit, options, skipped, dimension=done[0].dimension)
     found += mixture_findings(steps, options) + [
         Finding("warning", "warning", text, {"category": category.__name__})
         for category, text in summary if not issubclass(category, SkippedStepWarning)]
