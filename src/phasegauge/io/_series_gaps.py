@@ -90,8 +90,8 @@ def time_gaps(times) -> tuple[list, float]:
         return [], float("nan")
     interval = output_interval(steps)
     ratio = diffs / interval
-    whole = np.abs(ratio - np.round(ratio)) <= 1e-3 * np.maximum(ratio, 1.0)
-    jumps = np.flatnonzero((ratio >= 2 - 1e-3) & whole)
+    whole = np.abs(ratio - np.round(ratio)) <= INTERVAL_TOLERANCE * np.maximum(ratio, 1.0)
+    jumps = np.flatnonzero((ratio >= 2 - INTERVAL_TOLERANCE) & whole)
     return [(float(times[i]), float(times[i + 1])) for i in jumps], interval
 
 
