@@ -95,6 +95,11 @@ def time_gaps(times) -> tuple[list, float]:
     return [(float(times[i]), float(times[i + 1])) for i in jumps], interval
 
 
+def _first_gaps(texts: list) -> str:
+    """The first three gaps' texts, and how many more there are."""
+    return ", ".join(texts[:3]) + (f" and {len(texts) - 3} more" if len(texts) > 3 else "")
+
+
 def warn_series_gaps(files: list, where: str, steps: list) -> None:
     """Warn (:class:`SeriesWarning`) of steps that may be missing: from the stored times, else the file numbers."""
     if steps and all(s.time_origin in ("file", "xdmf", "listing", "unknown") for s in steps) and \
@@ -105,8 +110,7 @@ def warn_series_gaps(files: list, where: str, steps: list) -> None:
             return  # times out of order: the order is reported (or sorted) instead
         gaps, interval = time_gaps(known)
         if gaps:
-            shown = ", ".join(f"{a:g} to {b:g}" for a, b in gaps[:3]) + (
-                f" and {len(gaps) - 3} more" if len(gaps) > 3 else "")
+            shown = _first_gaps([f"{a:g} to {b:g}" for a, b in gaps])
             warnings.warn(SeriesWarning(f"the step times jump ({shown}) against the series' most common output "
                                         f"interval {interval:g}: steps may be missing or the output interval changed",
                                         where=where), stacklevel=3)
@@ -114,7 +118,7 @@ def warn_series_gaps(files: list, where: str, steps: list) -> None:
     gaps = numbering_gaps(files)
     if not gaps:
         return
-    shown = ", ".join(f"{a} to {b}" for a, b in gaps[:3]) + (f" and {len(gaps) - 3} more" if len(gaps) > 3 else "")
+    shown = _first_gaps([f"{a} to {b}" for a, b in gaps])
     if any(s.time_origin == "index" for s in steps):
         then = ("the times are step indices, so steps after a gap get too early a time: give a 'time,path' "
                 "listing if steps are missing")
