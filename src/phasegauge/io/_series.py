@@ -39,7 +39,7 @@ from ._formats import (TIME_NEEDS_FULL_READ, check_readable, format_for, peek_ti
 from ._mesh_pool import MeshPool
 from ._meshio_adapter import StepFields, XdmfTimeSeries, mesh_and_fields
 from ._claims import CheckedFiles, check_hdf5_claims
-from ._series_gaps import warn_series_gaps
+from ._series_gaps import first_three, warn_series_gaps
 from ._xdmf import grid_time, temporal_grids, xdmf_data_files
 
 __all__ = ["Series", "StepInfo", "Step", "open_series", "natural_key", "read_listing",
@@ -143,7 +143,7 @@ def _warn_unlisted(files: list, listing: str, rows: list) -> None:
     left = [os.path.basename(f) for f in files if os.path.abspath(f) not in named]
     if left:
         n = len(left)
-        shown = ", ".join(left[:3]) + (f" and {n - 3} more" if n > 3 else "")
+        shown = first_three(left)
         warnings.warn(SeriesWarning(
             f"{n} mesh file{'s' if n > 1 else ''} in the folder {'are' if n > 1 else 'is'} not in the step listing "
             f"{os.path.basename(listing)} ({shown}) and {'are' if n > 1 else 'is'} not measured: add "

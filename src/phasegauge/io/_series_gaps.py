@@ -15,7 +15,7 @@ import numpy as np
 
 from ..errors import SeriesWarning
 
-__all__ = ["numbering_gaps", "output_interval", "time_gaps", "warn_series_gaps", "INTERVAL_TOLERANCE"]
+__all__ = ["numbering_gaps", "output_interval", "time_gaps", "warn_series_gaps", "first_three", "INTERVAL_TOLERANCE"]
 
 #: time steps within this fraction of each other count as the same output interval
 INTERVAL_TOLERANCE = 1e-3
@@ -90,9 +90,14 @@ def time_gaps(times) -> tuple[list, float]:
         return [], float("nan")
     interval = output_interval(steps)
     ratio = diffs / interval
-    whole = np.abs(ratio - np.round(ratio)) <= 1e-3 * np.maximum(ratio, 1.0)
-    jumps = np.flatnonzero((ratio >= 2 - 1e-3) & whole)
+    whole = np.abs(ratio - np.round(ratio)) <= INTERVAL_TOLERANCE * np.maximum(ratio, 1.0)
+    jumps = np.flatnonzero((ratio >= 2 - INTERVAL_TOLERANCE) & whole)
     return [(float(times[i]), float(times[i + 1])) for i in jumps], interval
+
+
+def first_three(texts: list) -> str:
+    """The first three of ``texts`` joined, and how many more there are (the series' warnings name files or gaps so)."""
+    return ", ".join(texts[:3]) + (f" and {len(texts) - 3} more" if len(texts) > 3 else "")
 
 
 def warn_series_gaps(files: list, where: str, steps: list) -> None:
@@ -105,8 +110,7 @@ def warn_series_gaps(files: list, where: str, steps: list) -> None:
             return  # times out of order: the order is reported (or sorted) instead
         gaps, interval = time_gaps(known)
         if gaps:
-            shown = ", ".join(f"{a:g} to {b:g}" for a, b in gaps[:3]) + (
-                f" and {len(gaps) - 3} more" if len(gaps) > 3 else "")
+            shown = first_three([f"{a:g} to {b:g}" for a, b in gaps])
             warnings.warn(SeriesWarning(f"the step times jump ({shown}) against the series' most common output "
                                         f"interval {interval:g}: steps may be missing or the output interval changed",
                                         where=where), stacklevel=3)
@@ -114,7 +118,7 @@ def warn_series_gaps(files: list, where: str, steps: list) -> None:
     gaps = numbering_gaps(files)
     if not gaps:
         return
-    shown = ", ".join(f"{a} to {b}" for a, b in gaps[:3]) + (f" and {len(gaps) - 3} more" if len(gaps) > 3 else "")
+    shown = first_three([f"{a} to {b}" for a, b in gaps])
     if any(s.time_origin == "index" for s in steps):
         then = ("the times are step indices, so steps after a gap get too early a time: give a 'time,path' "
                 "listing if steps are missing")

@@ -28,6 +28,7 @@ __all__ = ["edge_twins", "split_neighbours", "ordered_rows", "sorted_with_places
 
 
 def _bits(n: int) -> int:
+    """Bits for the integers 0 .. n - 1, at least one (polyhedra.py packs its keys with it too)."""
     return max(int(n - 1).bit_length(), 1)
 
 

@@ -40,7 +40,7 @@ import numpy as np
 
 from ..errors import UnsupportedMeshError
 from ._grouping import group_columns, index_dtype
-from ._split_neighbours import edge_twins, ordered_rows, sorted_with_places, split_neighbours
+from ._split_neighbours import _bits, edge_twins, ordered_rows, sorted_with_places, split_neighbours
 from .cells import FACES
 
 __all__ = ["PolyhedraSplit", "split_polyhedra", "cell_face_stream"]
@@ -164,10 +164,6 @@ def _next_corners(face_offsets: np.ndarray, sizes: np.ndarray) -> np.ndarray:
     nxt = np.arange(1, int(face_offsets[-1]) + 1, dtype=index_dtype(int(face_offsets[-1]) + 1))
     nxt[face_offsets[1:] - 1] = face_offsets[:-1]
     return nxt
-
-
-def _bits(n: int) -> int:
-    return max(int(n - 1).bit_length(), 1)
 
 
 def _pack(high, low, bits: int) -> np.ndarray:
