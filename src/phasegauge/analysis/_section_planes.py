@@ -71,21 +71,55 @@ class _Sections:
         return out
 
 
+class _NodeColumns:
+    """Coordinate columns at the nodes of a plane's split: the mesh points' values, then the
+    added centres' means (the numbers of ``split.centre_means``). Kept in one contiguous buffer
+    per axis across the planes of an operator: the points' part (most of it) is written once,
+    not copied for every plane and axis, and gathers from it are several times faster than from
+    the strided coordinate column (10x for the centres' corners on 1M hexahedra)."""
+
+    def __init__(self, mesh: Mesh):
+        self.coordinates, self.n_points, self.buffers = mesh.coordinates, mesh.n_points, {}
+
+    def at(self, split, axis: int) -> np.ndarray:
+        """Coordinate ``axis`` at every node of ``split`` (n_vertices,)."""
+        n = self.n_points
+        buffer = self.buffers.get(axis)
+        if buffer is None:
+            buffer = np.empty(n + n // 8, dtype=self.coordinates.dtype)  # room for the centres
+            buffer[:n] = self.coordinates[:, axis]
+        added = [corner_mean(buffer[:n], corners) for _, corners in split.centres]
+        size = n + sum(values.size for values in added)
+        if buffer.size < size:
+            grown = np.empty(size + size // 8, dtype=buffer.dtype)
+            grown[:n] = buffer[:n]
+            buffer = grown
+        self.buffers[axis] = buffer
+        at = n
+        for values in added:
+            buffer[at:at + values.size] = values
+            at += values.size
+        return buffer[:size]
+
+
 def _plane_pieces(mesh: Mesh, axis: int, position: float, lower_end: bool, cells: np.ndarray,
-                  first_added: int) -> tuple:
+                  columns: _NodeColumns | None = None) -> tuple:
     """The section of ``cells`` by one plane: pieces and their corners on the cut edges.
 
-    Added centres are numbered from ``first_added`` on. Returns the piece
-    measures (n,), parents (n,), corner start and end nodes (n, dimension),
+    Returns the piece measures (n,), parents (n,), corner start and end nodes (n, dimension),
     corner weights t (n, dimension) and the corners of the split's added centres
-    (a list of (m, k) arrays, in node order).
+    (a list of (m, k) arrays, in node order). The nodes are numbered as the split of
+    ``cells`` numbers them (added centres from ``mesh.n_points`` on); the caller renumbers
+    the centres of the distinct cut edges (:func:`_renumbered`). ``columns``: the node
+    coordinates' buffers of the operator being built (default: new ones).
     """
     dim = mesh.dimension
+    columns = columns or _NodeColumns(mesh)
     split = split_cells(mesh, cells)
     nodes, parent, centres = split.simplices, split.owner, [corners for _, corners in split.centres]
     # the offsets from the plane first (one coordinate), the in-plane corners of the crossed
     # simplices only: the same numbers as gathering all corners (centres are corner means)
-    s = split.centre_means(mesh.coordinates[:, axis])[nodes] - position
+    s = columns.at(split, axis)[nodes] - position
     below = _count_below(s, lower_end)
     crossed = (below > 0) & (below < dim + 1)
     others = [a for a in range(dim) if a != axis]
@@ -106,11 +140,9 @@ def _plane_pieces(mesh: Mesh, axis: int, position: float, lower_end: bool, cells
     start, end = nodes[base + slot[first]], nodes[base + slot[second]]
     X = []  # per in-plane axis, (n, dim): the corners, as the split interpolates them
     for a in others:
-        column = split.centre_means(mesh.coordinates[:, a])
+        column = columns.at(split, a)
         Xi = column[start]
         X.append(Xi + t * (column[end] - Xi))
-    start = np.where(start >= mesh.n_points, start - mesh.n_points + first_added, start)
-    end = np.where(end >= mesh.n_points, end - mesh.n_points + first_added, end)
     if dim == 2:
         measures = np.abs(X[0][:, 1] - X[0][:, 0])
     else:
@@ -118,6 +150,13 @@ def _plane_pieces(mesh: Mesh, axis: int, position: float, lower_end: bool, cells
         d2 = [x[:, 2] - x[:, 0] for x in X]
         measures = 0.5 * np.abs(d1[0] * d2[1] - d1[1] * d2[0])
     return measures, parent[row[:, 0]], start, end, t, centres
+
+
+def _renumbered(nodes: np.ndarray, n_points: int, first_added: int) -> np.ndarray:
+    """Split node ids with the added centres (from ``n_points`` on) numbered from ``first_added``."""
+    if first_added == n_points:
+        return nodes
+    return np.where(nodes >= n_points, nodes + (first_added - n_points), nodes)
 
 
 def _count_below(s: np.ndarray, lower_end: bool) -> np.ndarray:
@@ -183,8 +222,7 @@ def _sorted_corners(s: np.ndarray, nodes: np.ndarray) -> tuple:
     return sorted_s, sorted_nodes
 
 
-def _layer_pieces(mesh: Mesh, axis: int, position: float, lower_end: bool, cells: np.ndarray,
-                  first_added: int) -> tuple | None:
+def _layer_pieces(mesh: Mesh, axis: int, position: float, lower_end: bool, cells: np.ndarray) -> tuple | None:
     """:func:`_plane_pieces` for a layer of cells that all meet the plane alike, else None.
 
     When every crossed cell is of one block, is split without added centres, and has the
@@ -212,7 +250,7 @@ def _layer_pieces(mesh: Mesh, axis: int, position: float, lower_end: bool, cells
     s = along[conn] - position
     if not (s == s[0]).all():
         return None
-    template = _plane_pieces(mesh, axis, position, lower_end, cells[:1], first_added)
+    template = _plane_pieces(mesh, axis, position, lower_end, cells[:1])
     measures, parents, start, end, t, centres = template
     if centres or measures.size == 0:
         return None
@@ -250,13 +288,14 @@ def _build_sections(mesh: Mesh, axis: int, positions: np.ndarray, lower_ends: np
     lo, hi = cell_extent(mesh, axis, keep=False)  # the operator itself is kept
     dim = mesh.dimension
     offsets, n_cuts, n_added = [0], 0, 0
+    columns = _NodeColumns(mesh)
     measures, parents, corners, starts, ends, weights, centres = [], [], [], [], [], [], []
     for position, lower_end in zip(positions, lower_ends):
         crossed = (lo <= position) & (hi > position) if lower_end else (lo < position) & (hi >= position)
         cells = np.nonzero(crossed)[0]
         m, parent, start, end, t, plane_centres = (
-            _layer_pieces(mesh, axis, float(position), bool(lower_end), cells, mesh.n_points + n_added)
-            or _plane_pieces(mesh, axis, float(position), bool(lower_end), cells, mesh.n_points + n_added))
+            _layer_pieces(mesh, axis, float(position), bool(lower_end), cells)
+            or _plane_pieces(mesh, axis, float(position), bool(lower_end), cells, columns))
         # each cut edge once: the pieces of a plane share them. Numbered in the order the
         # pieces first use them, so the pieces read their corner values nearly in order
         start, end, t = start.ravel(), end.ravel(), t.ravel()
@@ -272,6 +311,10 @@ def _build_sections(mesh: Mesh, axis: int, positions: np.ndarray, lower_ends: np
         cut = np.empty(key.size, dtype=np.int64)
         cut[order] = number[np.cumsum(distinct) - 1]
         first = first[by_use]
+        # the centres numbered after those of earlier planes: a strictly increasing map of the
+        # node ids, so the edge keys above sort and match alike before and after it
+        start = _renumbered(start[first], mesh.n_points, mesh.n_points + n_added)
+        end = _renumbered(end[first], mesh.n_points, mesh.n_points + n_added)
         n_added += sum(c.shape[0] for c in plane_centres)
         # kept per plane in the narrowest type their values need so far (joined below in the
         # final types): the planes' parts are what the building holds longest
@@ -279,8 +322,8 @@ def _build_sections(mesh: Mesh, axis: int, positions: np.ndarray, lower_ends: np
         measures.append(m)
         parents.append(parent.astype(index_dtype(mesh.n_cells), copy=False))
         corners.append((cut.reshape(-1, dim) + n_cuts).astype(index_dtype(n_cuts + first.size), copy=False))
-        starts.append(start[first].astype(nodes, copy=False))
-        ends.append(end[first].astype(nodes, copy=False))
+        starts.append(start.astype(nodes, copy=False))
+        ends.append(end.astype(nodes, copy=False))
         weights.append(t[first])
         centres += plane_centres
         offsets.append(offsets[-1] + m.size)
