@@ -98,20 +98,32 @@ def _build(mesh: Mesh) -> Quasi2D | None:
     used = mesh.used_points
     if used.size == 0:
         return None
-    P = mesh.points[used]
-    extent = np.ptp(P, axis=0)
+    low, high = mesh.bounds  # of the used points
+    extent = high - low
     tolerance = PLANE_TOLERANCE * max(float(extent.max()), 1e-300)
     for axis in np.argsort(extent, kind="stable"):  # the thinnest axis first
-        lo, hi = float(P[:, axis].min()), float(P[:, axis].max())
+        lo, hi = float(low[axis]), float(high[axis])
         if hi - lo <= tolerance:
             return None
-        values = P[:, axis]
-        if not np.all((np.abs(values - lo) <= tolerance) | (np.abs(values - hi) <= tolerance)):
+        # a few points spread over the numbering first: on a mesh that is not one cell thick
+        # some of them lie between the planes
+        if not _on_planes(mesh.points[used[::max(1, used.size // _PROBE)], axis], lo, hi, tolerance):
+            continue
+        if not _on_planes(mesh.points[used, axis], lo, hi, tolerance):
             continue
         built = _lower_faces(mesh, int(axis), lo, hi, tolerance)
         if built is not None:
             return built
     return None
+
+
+#: used points checked first for lying on the two planes (then all of them)
+_PROBE = 4096
+
+
+def _on_planes(values: np.ndarray, lo: float, hi: float, tolerance: float) -> bool:
+    """True when every value lies within ``tolerance`` of ``lo`` or of ``hi``."""
+    return bool(np.all((np.abs(values - lo) <= tolerance) | (np.abs(values - hi) <= tolerance)))
 
 
 def _lower_faces(mesh: Mesh, axis: int, lo: float, hi: float, tolerance: float) -> Quasi2D | None:
