@@ -91,7 +91,9 @@ def find_regular_grid(mesh: Mesh) -> RegularGrid | None:
     if used.size != mesh.n_points:
         return None
     axes = []
-    scale = float(np.ptp(X, axis=0).max()) or 1.0
+    # the extents of the used points, all of them here (the flat axis of a 2D mesh, beyond its
+    # coordinates, spans less than the others)
+    scale = float(np.ptp(mesh.bounds, axis=0).max()) or 1.0
     tol = 1e-9 * scale
     for d in range(mesh.dimension):
         s = np.sort(X[:, d])
@@ -99,6 +101,10 @@ def find_regular_grid(mesh: Mesh) -> RegularGrid | None:
         if starts.size < 2:
             return None
         axes.append(s[starts])
+        # a grid's point count is the product of its axes' (each at least 2): an axis of
+        # distinct values that does not divide it ends the search (a jittered mesh, after one sort)
+        if mesh.n_points % starts.size or starts.size << (mesh.dimension - 1) > mesh.n_points:
+            return None
     point_shape = tuple(len(a) for a in axes)
     cell_shape = tuple(n - 1 for n in point_shape)
     if int(np.prod(point_shape)) != mesh.n_points or int(np.prod(cell_shape)) != mesh.n_cells:
