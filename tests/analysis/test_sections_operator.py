@@ -282,6 +282,8 @@ def test_section_corners_in_the_order_of_a_stable_argsort(k):
     s = rng.choice([-1.0, -0.5, 0.0, 0.25, 0.5], size=(3000, k))
     nodes = rng.integers(0, 10 ** 6, (3000, k))
     order = np.argsort(s, axis=1, kind="stable")
-    got = _section_planes._sorted_corners(s, nodes)
+    got = _section_planes._sorted_corners([s[:, j] for j in range(k)])
     assert np.array_equal(got[0], np.take_along_axis(s, order, axis=1))
-    assert np.array_equal(got[1], np.take_along_axis(nodes, order, axis=1))
+    assert np.array_equal(got[1], order)  # the corner each came from: the stable argsort itself
+    assert np.array_equal(np.take_along_axis(nodes, got[1].astype(np.intp), axis=1),
+                          np.take_along_axis(nodes, order, axis=1))

@@ -119,16 +119,18 @@ def _plane_pieces(mesh: Mesh, axis: int, position: float, lower_end: bool, cells
     nodes, parent, centres = split.simplices, split.owner, [corners for _, corners in split.centres]
     # the offsets from the plane first (one coordinate), the in-plane corners of the crossed
     # simplices only: the same numbers as gathering all corners (centres are corner means)
-    s = columns.at(split, axis)[nodes] - position
+    # corner by corner (contiguous columns: the comparisons below run several times faster)
+    k = dim + 1
+    table = columns.at(split, axis)
+    s = [table[nodes[:, j]] - position for j in range(k)]
     below = _count_below(s, lower_end)
     crossed = (below > 0) & (below < dim + 1)
     others = [a for a in range(dim) if a != axis]
     rows = np.flatnonzero(crossed)
-    parent, s, below = parent[rows], s[rows], below[rows]
-    k = dim + 1
+    parent, below = parent[rows], below[rows]
     # each crossed simplex's corners in increasing s: the sorted s, and the corner slot each came
     # from (int8: little to write); the nodes are read through the slots below
-    s, slot = _sorted_corners(s, np.broadcast_to(np.arange(k, dtype=np.int8), s.shape))
+    s, slot = _sorted_corners([column[rows] for column in s])
     # every piece corner at once: the simplex row and the two sorted corners of its edge, in the
     # order the cases list them (pieces of one case by simplex, case by case)
     row, i, j = _piece_edges(below, dim)
@@ -159,11 +161,12 @@ def _renumbered(nodes: np.ndarray, n_points: int, first_added: int) -> np.ndarra
     return np.where(nodes >= n_points, nodes + (first_added - n_points), nodes)
 
 
-def _count_below(s: np.ndarray, lower_end: bool) -> np.ndarray:
-    """Per simplex, how many corners lie below the plane (s <= 0 with ``lower_end``, else s < 0)."""
-    below = np.zeros(s.shape[0], dtype=np.int8)
-    for j in range(s.shape[1]):  # column by column: faster than a count along the short axis
-        below += s[:, j] <= 0 if lower_end else s[:, j] < 0
+def _count_below(s: list, lower_end: bool) -> np.ndarray:
+    """Per simplex, how many corners lie below the plane (s <= 0 with ``lower_end``, else s < 0);
+    ``s``: the offsets of each corner, one array (n,) per corner."""
+    below = np.zeros(s[0].shape[0], dtype=np.int8)
+    for column in s:
+        below += column <= 0 if lower_end else column < 0
     return below
 
 
@@ -195,31 +198,31 @@ def _piece_edges(below: np.ndarray, dim: int) -> tuple:
     return (row, np.repeat(np.stack(i), sizes, axis=0), np.repeat(np.stack(j), sizes, axis=0))
 
 
-def _sorted_corners(s: np.ndarray, nodes: np.ndarray) -> tuple:
-    """Each simplex's corners in increasing ``s``, ties in corner order (as a stable argsort).
+def _sorted_corners(columns: list) -> tuple:
+    """Each simplex's corners in increasing offset, ties in corner order (as a stable argsort).
 
-    By ranks: a corner's place is the number of corners before it (lower ``s``, or equal and
-    earlier), from one comparison per pair of columns; each column is then written to its place,
-    the nodes with their ``s``: no per-row argsort and gathers (2.4x faster than exchanges on
-    65 000 tetrahedra).
+    ``columns``: the offsets of each corner, one array (n,) per corner. Returns the sorted
+    offsets (n, k) and the corner each came from (n, k), int8 (the stable argsort itself).
+    By ranks: a corner's place is the number of corners before it (lower offset, or equal and
+    earlier), from one comparison per pair of columns; each column is then written to its
+    place: no per-row argsort and gathers (2.4x faster than exchanges on 65 000 tetrahedra).
     """
-    n, k = s.shape
-    columns = [s[:, j] for j in range(k)]
-    rank = [np.zeros(n, dtype=np.int64) for _ in range(k)]
+    n, k = columns[0].shape[0], len(columns)
+    rank = [np.zeros(n, dtype=np.int8) for _ in range(k)]  # at most k - 1
     for a in range(k):
         for b in range(a + 1, k):
             before = columns[b] < columns[a]  # b first only when strictly lower: ties stay in order
             rank[a] += before
             rank[b] += ~before
-    sorted_s = np.empty((n, k), dtype=s.dtype)
-    sorted_nodes = np.empty((n, k), dtype=nodes.dtype)
-    flat_s, flat_nodes = sorted_s.reshape(-1), sorted_nodes.reshape(-1)
+    sorted_s = np.empty((n, k), dtype=columns[0].dtype)
+    slot = np.empty((n, k), dtype=np.int8)
+    flat_s, flat_slot = sorted_s.reshape(-1), slot.reshape(-1)
     base = np.arange(0, n * k, k)
     for j in range(k):
         place = base + rank[j]
         flat_s[place] = columns[j]
-        flat_nodes[place] = nodes[:, j]
-    return sorted_s, sorted_nodes
+        flat_slot[place] = j
+    return sorted_s, slot
 
 
 def _layer_pieces(mesh: Mesh, axis: int, position: float, lower_end: bool, cells: np.ndarray) -> tuple | None:
