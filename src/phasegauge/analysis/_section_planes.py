@@ -324,7 +324,12 @@ def _build_sections(mesh: Mesh, axis: int, positions: np.ndarray, lower_ends: np
         nodes = index_dtype(mesh.n_points + n_added)
         measures.append(m)
         parents.append(parent.astype(index_dtype(mesh.n_cells), copy=False))
-        corners.append((cut.reshape(-1, dim) + n_cuts).astype(index_dtype(n_cuts + first.size), copy=False))
+        # stored corner by corner, (dim, n), seen as (n, dim): strided reads here, contiguous
+        # copies when joined (a transposing copy of all the planes' corners there was slower)
+        part = np.empty((dim, m.size), dtype=index_dtype(n_cuts + first.size))
+        for a in range(dim):
+            np.add(cut[a::dim], n_cuts, out=part[a], casting="unsafe")
+        corners.append(part.T)
         starts.append(start.astype(nodes, copy=False))
         ends.append(end.astype(nodes, copy=False))
         weights.append(t[first])
