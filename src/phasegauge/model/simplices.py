@@ -418,6 +418,9 @@ def _cone(mesh: Mesh, b: int, local: np.ndarray, conn: np.ndarray, ids: np.ndarr
             continue
         on = centred[:, q]
         q += 1
+        if on.all():  # usually, on jittered or curvilinear cells: no masked copies
+            pending.append((F, centre, ids, numbers[:, j]))
+            continue
         if on.any():
             pending.append((F[on], centre[on], ids[on], numbers[on, j]))
         if not on.all():
