@@ -225,7 +225,8 @@ def _sorted_corners(columns: list) -> tuple:
     return sorted_s, slot
 
 
-def _layer_pieces(mesh: Mesh, axis: int, position: float, lower_end: bool, cells: np.ndarray) -> tuple | None:
+def _layer_pieces(mesh: Mesh, axis: int, position: float, lower_end: bool, cells: np.ndarray,
+                  columns: _NodeColumns | None = None) -> tuple | None:
     """:func:`_plane_pieces` for a layer of cells that all meet the plane alike, else None.
 
     When every crossed cell is of one block, is split without added centres, and has the
@@ -235,7 +236,7 @@ def _layer_pieces(mesh: Mesh, axis: int, position: float, lower_end: bool, cells
     for the others, each with its own corner coordinates. The arrays are the ones
     :func:`_plane_pieces` returns for all the cells, value for value and in its order (the
     first cell's pieces one by one, each over all the cells): the same floating-point
-    operations on the same numbers.
+    operations on the same numbers. ``columns`` as for :func:`_plane_pieces`.
     """
     if cells.size < 2:
         return None
@@ -253,7 +254,7 @@ def _layer_pieces(mesh: Mesh, axis: int, position: float, lower_end: bool, cells
     s = along[conn] - position
     if not (s == s[0]).all():
         return None
-    template = _plane_pieces(mesh, axis, position, lower_end, cells[:1])
+    template = _plane_pieces(mesh, axis, position, lower_end, cells[:1], columns)
     measures, parents, start, end, t, centres = template
     if centres or measures.size == 0:
         return None
@@ -297,7 +298,7 @@ def _build_sections(mesh: Mesh, axis: int, positions: np.ndarray, lower_ends: np
         crossed = (lo <= position) & (hi > position) if lower_end else (lo < position) & (hi >= position)
         cells = np.nonzero(crossed)[0]
         m, parent, start, end, t, plane_centres = (
-            _layer_pieces(mesh, axis, float(position), bool(lower_end), cells)
+            _layer_pieces(mesh, axis, float(position), bool(lower_end), cells, columns)
             or _plane_pieces(mesh, axis, float(position), bool(lower_end), cells, columns))
         # each cut edge once: the pieces of a plane share them. Numbered in the order the
         # pieces first use them, so the pieces read their corner values nearly in order
