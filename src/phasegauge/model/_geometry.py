@@ -7,7 +7,6 @@ from types import MappingProxyType
 import numpy as np
 
 from ..errors import UnsupportedMeshError
-from ._grouping import CHUNK
 from .corners import corner_sum
 
 
@@ -148,6 +147,9 @@ def _block_geometry(cell_type: str, X: np.ndarray) -> tuple[np.ndarray, np.ndarr
 #: the size of its non-affine map coefficients times its edge size squared is at most this share of
 #: its volume; its volume is then exact to rounding and its centroid within ~1e-13 edge lengths
 _AFFINE = 1e-13
+#: cells per chunk of :func:`cell_geometry`: a bent hexahedron's Gauss sums hold about 80 arrays of
+#: this many floats, which then stay in a 4 MB cache (1 << 15 was 30 % slower on 1M hexahedra)
+_CELL_CHUNK = 1 << 13
 
 
 def cell_geometry(cell_type: str, X: np.ndarray, conn: np.ndarray,
@@ -166,14 +168,14 @@ def cell_geometry(cell_type: str, X: np.ndarray, conn: np.ndarray,
         signed[:], cent[:] = _block_geometry(cell_type, X[conn])
         return signed, cent
     Xt = [np.ascontiguousarray(X[:, i]) for i in range(dim)]
-    for lo in range(0, n, CHUNK):
-        part = conn[lo:lo + CHUNK]
+    for lo in range(0, n, _CELL_CHUNK):
+        part = conn[lo:lo + _CELL_CHUNK]
         # P[j][i]: coordinate i of corner j, each of shape (chunk,)
         P = [[x[part[:, j]] for x in Xt] for j in range(conn.shape[1])]
         s, c = _COLUMN_GEOMETRY[cell_type](P)
-        signed[lo:lo + CHUNK] = s
+        signed[lo:lo + _CELL_CHUNK] = s
         for i in range(dim):
-            cent[lo:lo + CHUNK, i] = c[i]
+            cent[lo:lo + _CELL_CHUNK, i] = c[i]
     return signed, cent
 
 
@@ -257,17 +259,31 @@ def _hex_columns(P: list):
         F = [f[i][bent] + 0.5 * Gb[i] for i in r3]
         total = np.zeros(bent.size)
         moment = [np.zeros(bent.size) for _ in r3]
-        for p in (-_GC, _GC):
-            for q in (-_GC, _GC):
-                for r in (-_GC, _GC):
-                    Ju = [Ab[i] + q * D[i] + r * F[i] + (q * r) * Gb[i] for i in r3]
-                    Jv = [Bb[i] + p * D[i] + r * E[i] + (p * r) * Gb[i] for i in r3]
-                    Jw = [Cb[i] + p * F[i] + q * E[i] + (p * q) * Gb[i] for i in r3]
-                    det = _triple(Ju, Jv, Jw)
+        # each Jacobian column depends on two of the three Gauss coordinates, and each term of the
+        # moment's map on its own product of them: formed once per distinct value and reused at
+        # every point that shares it (the same operations on the same numbers as forming them at
+        # each point, about 40 % fewer array operations)
+        signs = (-_GC, _GC)
+        Ju = {(q, r): [Ab[i] + q * D[i] + r * F[i] + (q * r) * Gb[i] for i in r3] for q in signs for r in signs}
+        Jv = {(p, r): [Bb[i] + p * D[i] + r * E[i] + (p * r) * Gb[i] for i in r3] for p in signs for r in signs}
+        Jw = {(p, q): [Cb[i] + p * F[i] + q * E[i] + (p * q) * Gb[i] for i in r3] for p in signs for q in signs}
+        scaled = {}
+
+        def times(factor, vectors, i):  # factor * vectors[i], once per distinct factor
+            key = (factor, id(vectors), i)
+            if key not in scaled:
+                scaled[key] = factor * vectors[i]
+            return scaled[key]
+
+        for p in signs:
+            for q in signs:
+                pq = [times(p, Ab, i) + times(q, Bb, i) for i in r3]
+                for r in signs:
+                    det = _triple(Ju[q, r], Jv[p, r], Jw[p, q])
                     total += det
                     for i in r3:
-                        moment[i] += det * (p * Ab[i] + q * Bb[i] + r * Cb[i] + (p * q) * D[i] + (q * r) * E[i]
-                                            + (p * r) * F[i] + (p * q * r) * Gb[i])
+                        moment[i] += det * (pq[i] + times(r, Cb, i) + times(p * q, D, i) + times(q * r, E, i)
+                                            + times(p * r, F, i) + times(p * q * r, Gb, i))
         total *= 0.125
         volume[bent] = total
         with np.errstate(invalid="ignore", divide="ignore"):
