@@ -12,12 +12,15 @@ from typing import TYPE_CHECKING, NamedTuple
 
 import numpy as np
 
-from ._grouping import CHUNK
 
 if TYPE_CHECKING:
     from .mesh import Mesh
 
 __all__ = ["corner_sums", "point_stencil", "point_fit", "PointFit", "linear_point_values"]
+
+#: cells per chunk of :func:`corner_sums` (the chunk's sums stay in cache: 1 << 15 took 1.5x the
+#: time on 1M hexahedra)
+_SUM_CHUNK = 1 << 13
 
 
 def corner_sums(mesh: Mesh, values: np.ndarray, finite: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
@@ -34,8 +37,8 @@ def corner_sums(mesh: Mesh, values: np.ndarray, finite: np.ndarray) -> tuple[np.
     good = finite[:, 0] if one else finite
     for block, offset in zip(mesh.blocks, mesh.block_offsets[:-1]):
         conn = block.connectivity
-        for start in range(0, len(block), CHUNK):
-            corners = conn[start:start + CHUNK].T
+        for start in range(0, len(block), _SUM_CHUNK):
+            corners = conn[start:start + _SUM_CHUNK].T
             rows = slice(int(offset) + start, int(offset) + start + corners.shape[1])
             t = total[rows, 0] if one else total[rows]
             c = count[rows, 0] if one else count[rows]

@@ -18,8 +18,9 @@ if TYPE_CHECKING:  # the mesh imports this module (its geometry sums corners)
 
 __all__ = ["corner_sum", "corner_mean", "CornerExtremes", "corner_extremes", "cell_extent", "cell_gradient"]
 
-#: rows per chunk of the corner passes (the temporaries stay in cache)
-_CHUNK = 1 << 15
+#: rows per chunk of the corner passes (the temporaries stay in cache: 1 << 15 took 1.4-1.8x the
+#: time of corner_extremes on 1M hexahedra)
+_CHUNK = 1 << 13
 #: rows per chunk of :func:`corner_mean` (its gathered corners, k values a row, stay in cache)
 _MEAN_CHUNK = 1 << 16
 
