@@ -22,6 +22,7 @@ from ..model.corners import corner_mean
 from ..model.mixture_models import DoubleWellModel
 from ._binodal import _stability, binodal, spinodal
 from ._signed_distance import _ContourGeometry, _maybe_near_cells, _signed_distance
+from ._sums import dot
 
 __all__ = ["interface_distance", "bulk_compositions", "mixture_state", "solute_distribution", "equilibrium_gap",
            "gibbs_thomson_shift", "MIXTURE_STATES"]
@@ -257,11 +258,11 @@ def solute_distribution(mesh, solute, distance, *, width, multiple=4.0, receivin
     def mean(mask, v):
         m = mask & finite
         total = weights[m].sum()
-        return float(np.dot(weights[m], v[m]) / total) if total > 0 else float("nan")
+        return dot(weights[m], v[m]) / float(total) if total > 0 else float("nan")
 
-    amount = weights[finite] @ values[finite]
+    amount = dot(weights[finite], values[finite])  # (no BLAS: see _sums.dot)
     out = {"solute_receiving": mean(take, values), "solute_other": mean(other, values),
-           "extraction_progress": float(weights[side & finite] @ values[side & finite] / amount)
+           "extraction_progress": dot(weights[side & finite], values[side & finite]) / amount
            if amount > 0 else float("nan")}
     out["partition_coefficient"] = (out["solute_receiving"] / out["solute_other"]
                                     if out["solute_other"] > 0 else float("nan"))
