@@ -197,7 +197,7 @@ def equilibrium_gap(bulk_lean, bulk_rich, binodal_lean, binodal_rich):
     return float(np.max(np.abs([bulk_lean - binodal_lean, bulk_rich - binodal_rich])))
 
 
-def mixture_state(model, temperature, composition):
+def mixture_state(model, temperature, composition, *, equilibrium=None):
     """Whether a mixture of this overall composition is stable, metastable or unstable.
 
     Parameters
@@ -205,6 +205,9 @@ def mixture_state(model, temperature, composition):
     model : NrtlModel, RegularSolutionModel or DoubleWellModel
     temperature : float, in K
     composition : float or array_like, mole fraction
+    equilibrium : BinaryEquilibrium, optional
+        ``equilibrium_at(model, temperature)`` when already computed (its binodal and spinodal
+        are the same numbers; saves the work).
 
     Returns
     -------
@@ -212,13 +215,20 @@ def mixture_state(model, temperature, composition):
         ``'stable'`` outside the binodal (or where one phase is stable), ``'unstable'`` inside
         the spinodal, ``'metastable'`` between.
     """
-    s_lean, s_rich = spinodal(model, temperature)
-    b_lean, b_rich, _ = binodal(model, temperature, spinodal_pair=(s_lean, s_rich))
+    if equilibrium is None:
+        (s_lean,), (s_rich,) = spinodal(model, temperature)
+        (b_lean,), (b_rich,), _ = binodal(model, temperature, spinodal_pair=(np.array([s_lean]), np.array([s_rich])))
+    elif equilibrium.temperature != float(temperature):
+        raise OptionError(f"the equilibrium is at {equilibrium.temperature:g} K, not at {float(temperature):g} K",
+                          fix="pass equilibrium_at(model, temperature) of the same temperature")
+    else:
+        s_lean, s_rich = equilibrium.spinodal_lean, equilibrium.spinodal_rich
+        b_lean, b_rich = equilibrium.binodal_lean, equilibrium.binodal_rich
     x = np.asarray(composition, dtype=float)
     state = np.full(x.shape, "stable", dtype=object)
-    if np.isfinite(b_lean[0]):
-        state[(x > b_lean[0]) & (x < b_rich[0])] = "metastable"
-        state[(x > s_lean[0]) & (x < s_rich[0])] = "unstable"
+    if np.isfinite(b_lean):
+        state[(x > b_lean) & (x < b_rich)] = "metastable"
+        state[(x > s_lean) & (x < s_rich)] = "unstable"
     return str(state) if state.ndim == 0 else state.astype(str)
 
 

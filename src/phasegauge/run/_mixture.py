@@ -150,7 +150,8 @@ def mixture_step(step, mesh, ind, contour, metrics: dict, options, droplets=None
     eq = thermo.equilibrium_at(model, t) if np.isfinite(t) else None
     out["binodal_lean"] = eq.binodal_lean if eq is not None else math.nan
     out["binodal_rich"] = eq.binodal_rich if eq is not None else math.nan
-    out["mixture_state"] = str(thermo.mixture_state(model, t, out["mean_composition"])) if eq is not None else ""
+    out["mixture_state"] = (str(thermo.mixture_state(model, t, out["mean_composition"], equilibrium=eq))
+                            if eq is not None else "")
     width = metrics.get("interface_width", math.nan)
     if not (np.isfinite(width) and width > 0):
         width = metrics.get("width_second_moment", math.nan)
