@@ -216,8 +216,9 @@ def mixture_state(model, temperature, composition, *, equilibrium=None):
         the spinodal, ``'metastable'`` between.
     """
     if equilibrium is None:
-        (s_lean,), (s_rich,) = spinodal(model, temperature)
-        (b_lean,), (b_rich,), _ = binodal(model, temperature, spinodal_pair=(np.array([s_lean]), np.array([s_rich])))
+        pair = spinodal(model, temperature)
+        lean, rich, _ = binodal(model, temperature, spinodal_pair=pair)
+        s_lean, s_rich, b_lean, b_rich = pair[0][0], pair[1][0], lean[0], rich[0]
     elif equilibrium.temperature != float(temperature):
         raise OptionError(f"the equilibrium is at {equilibrium.temperature:g} K, not at {float(temperature):g} K",
                           fix="pass equilibrium_at(model, temperature) of the same temperature")
