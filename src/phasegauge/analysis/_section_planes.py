@@ -251,37 +251,30 @@ def _build_sections(mesh: Mesh, axis: int, positions: np.ndarray, lower_ends: np
     dim = mesh.dimension
     offsets, n_cuts, n_added = [0], 0, 0
     measures, parents, corners, starts, ends, weights, centres = [], [], [], [], [], [], []
+    points, cell_fields = "point" in locations, "cell" in locations
     for position, lower_end in zip(positions, lower_ends):
         crossed = (lo <= position) & (hi > position) if lower_end else (lo < position) & (hi >= position)
         cells = np.nonzero(crossed)[0]
+        del crossed
         m, parent, start, end, t, plane_centres = (
             _layer_pieces(mesh, axis, float(position), bool(lower_end), cells, mesh.n_points + n_added)
             or _plane_pieces(mesh, axis, float(position), bool(lower_end), cells, mesh.n_points + n_added))
-        # each cut edge once: the pieces of a plane share them. Numbered in the order the
-        # pieces first use them, so the pieces read their corner values nearly in order
-        start, end, t = start.ravel(), end.ravel(), t.ravel()
-        span = max(int(start.max(initial=0)), int(end.max(initial=0))) + 1
-        # a stable argsort of the edge keys, by one packed sort (_sort_order: the same permutation)
-        order, key = _sort_order(start.astype(np.int64) * np.int64(span) + end, _bits(span * span))
-        distinct = np.ones(key.size, dtype=bool)
-        distinct[1:] = key[1:] != key[:-1]
-        first = order[distinct]  # where each cut edge is used first, in key order
-        by_use = _sort_order(first.astype(np.int64), _bits(key.size))[0]  # distinct: any sort orders alike
-        number = np.empty(first.size, dtype=np.int64)
-        number[by_use] = np.arange(first.size)
-        cut = np.empty(key.size, dtype=np.int64)
-        cut[order] = number[np.cumsum(distinct) - 1]
-        first = first[by_use]
+        del cells
         n_added += sum(c.shape[0] for c in plane_centres)
+        measures.append(m)
+        if cell_fields:  # the pieces' cells serve cell fields only
+            parents.append(parent.astype(index_dtype(mesh.n_cells), copy=False))
+        del parent
+        cut, first = _cut_edges(start, end)
         # kept per plane in the narrowest type their values need so far (joined below in the
         # final types): the planes' parts are what the building holds longest
         nodes = index_dtype(mesh.n_points + n_added)
-        measures.append(m)
-        parents.append(parent.astype(index_dtype(mesh.n_cells), copy=False))
         corners.append((cut.reshape(-1, dim) + n_cuts).astype(index_dtype(n_cuts + first.size), copy=False))
-        starts.append(start[first].astype(nodes, copy=False))
-        ends.append(end[first].astype(nodes, copy=False))
-        weights.append(t[first])
+        del cut
+        starts.append(start.ravel()[first].astype(nodes, copy=False))
+        ends.append(end.ravel()[first].astype(nodes, copy=False))
+        weights.append(t.ravel()[first])
+        del start, end, t  # the plane's full-size arrays go before the next plane is cut
         centres += plane_centres
         offsets.append(offsets[-1] + m.size)
         n_cuts += first.size
@@ -308,7 +301,6 @@ def _build_sections(mesh: Mesh, axis: int, positions: np.ndarray, lower_ends: np
 
     measures = joined(measures, np.float64)
     offsets = np.asarray(offsets, dtype=np.int64)
-    points = "point" in locations
     start = joined(starts, node_type) if points else None
     end = joined(ends, node_type) if points else None
     kept = ()
@@ -320,11 +312,35 @@ def _build_sections(mesh: Mesh, axis: int, positions: np.ndarray, lower_ends: np
         areas=np.array([measures[a:b].sum() for a, b in zip(offsets[:-1], offsets[1:])]),
         measures=measures,
         corners=joined(corners, index_dtype(n_cuts), (0, dim), transposed=True) if points else None,
-        parent=joined(parents, index_dtype(mesh.n_cells)) if "cell" in locations else None,
+        parent=joined(parents, index_dtype(mesh.n_cells)) if cell_fields else None,
         start=start,
         end=end,
         weight=joined(weights, np.float64) if points else None,
         centres=kept)
+
+
+def _cut_edges(start: np.ndarray, end: np.ndarray) -> tuple:
+    """Each cut edge of a plane once: the pieces of a plane share them.
+
+    ``start`` and ``end`` are the piece corners' nodes (n, dimension). Returns every piece
+    corner's cut edge (flat, numbered in the order the pieces first use them, so the pieces
+    read their corner values nearly in order) and, per cut edge, the flat position of the
+    corner that uses it first.
+    """
+    start, end = start.ravel(), end.ravel()
+    span = max(int(start.max(initial=0)), int(end.max(initial=0))) + 1
+    # a stable argsort of the edge keys, by one packed sort (_sort_order: the same permutation)
+    order, key = _sort_order(start.astype(np.int64) * np.int64(span) + end, _bits(span * span))
+    distinct = np.ones(key.size, dtype=bool)
+    distinct[1:] = key[1:] != key[:-1]
+    del key
+    first = order[distinct]  # where each cut edge is used first, in key order
+    by_use = _sort_order(first.astype(np.int64), _bits(distinct.size))[0]  # distinct: any sort orders alike
+    number = np.empty(first.size, dtype=np.int64)
+    number[by_use] = np.arange(first.size)
+    cut = np.empty(distinct.size, dtype=np.int64)
+    cut[order] = number[np.cumsum(distinct) - 1]
+    return cut, first[by_use]
 
 
 def _used_centres(n_points: int, start: np.ndarray, end: np.ndarray, centres: list) -> tuple:
