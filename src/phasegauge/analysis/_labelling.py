@@ -368,6 +368,7 @@ def label_droplets(mesh: Mesh, c_cell, *, level: float = 0.5, connectivity: str 
     icells, isizes = _contour_arrays(mesh, interface_cells, interface_sizes)
 
     c0 = np.where(np.isfinite(c), c, 0.0)
+    del c  # a mesh-wide array (rescaled between the plateaus): c0 from here on
     dV = mesh.cell_measures
     weights = c0 * dV
     # all further work on the near cells (c above the band floor: cores and band)

@@ -10,7 +10,7 @@ interpolates its fields along the cut edges (:mod:`._cross_sections` sums the mo
 
 from __future__ import annotations
 
-from dataclasses import dataclass
+from dataclasses import dataclass, replace
 from types import MappingProxyType
 
 import numpy as np
@@ -90,6 +90,7 @@ def _plane_pieces(mesh: Mesh, axis: int, position: float, lower_end: bool, cells
     crossed = (below > 0) & (below < dim + 1)
     others = [a for a in range(dim) if a != axis]
     rows = np.flatnonzero(crossed)
+    del crossed
     parent, s, below = parent[rows], s[rows], below[rows]
     k = dim + 1
     # each crossed simplex's corners in increasing s: the sorted s, and the corner slot each came
@@ -99,11 +100,18 @@ def _plane_pieces(mesh: Mesh, axis: int, position: float, lower_end: bool, cells
     # order the cases list them (pieces of one case by simplex, case by case)
     row, i, j = _piece_edges(below, dim)
     first, second = row * k + i, row * k + j  # (n, dim) flat positions in the sorted corner arrays
+    del i, j, below
     s, slot = s.ravel(), slot.ravel()
     si = s[first]
     t = si / (si - s[second])
+    del si, s
     nodes, base = nodes.ravel(), rows[row] * k
+    parent = parent[row[:, 0]]  # each piece's cell
+    del row, rows
     start, end = nodes[base + slot[first]], nodes[base + slot[second]]
+    del nodes, base, slot, first, second
+    # the simplices go; the split's centres are still read below
+    split = replace(split, simplices=np.empty((0, k), dtype=np.int64), owner=np.empty(0, dtype=np.int64))
     X = []  # per in-plane axis, (n, dim): the corners, as the split interpolates them
     for a in others:
         column = split.centre_means(mesh.coordinates[:, a])
@@ -117,7 +125,7 @@ def _plane_pieces(mesh: Mesh, axis: int, position: float, lower_end: bool, cells
         d1 = [x[:, 1] - x[:, 0] for x in X]
         d2 = [x[:, 2] - x[:, 0] for x in X]
         measures = 0.5 * np.abs(d1[0] * d2[1] - d1[1] * d2[0])
-    return measures, parent[row[:, 0]], start, end, t, centres
+    return measures, parent, start, end, t, centres
 
 
 def _count_below(s: np.ndarray, lower_end: bool) -> np.ndarray:
