@@ -24,6 +24,9 @@ from ..model.simplices import needs_centres, split_cells
 #: section operators kept per mesh: the latest ones built (a series uses one, for all its steps)
 _KEEP = 4
 
+#: cut edges interpolated at a time (:meth:`_Sections.cut_values`)
+_CUT_CHUNK = 1 << 16
+
 
 @dataclass(frozen=True)
 class _Sections:
@@ -54,20 +57,22 @@ class _Sections:
 
     def cut_values(self, mesh: Mesh, values: np.ndarray) -> np.ndarray:
         """A point field (n_points,) at every cut edge (n_cuts,), linear along the edge."""
-        # numpy gathers much faster with intp indices than with the stored int32 ones
-        start = self.start.astype(np.intp, copy=False)
-        end = self.end.astype(np.intp, copy=False)
         if self.centres:  # the split's added centres are nodes: one table of point, then centre values
             table = np.concatenate([values] + [corner_mean(values, corners.astype(np.intp))
                                                for corners in self.centres], dtype=values.dtype)
         else:
             table = values
-        low = table[start]
-        out = table[end]
-        with np.errstate(invalid="ignore"):  # non-finite values: the pieces are left out later
-            out -= low
-            out *= self.weight
-            out += low  # low + t (high - low), as the split interpolates
+        out = np.empty(self.start.size, dtype=table.dtype)
+        for lo in range(0, out.size, _CUT_CHUNK):  # chunks: the index copies and gathers stay small
+            part = slice(lo, lo + _CUT_CHUNK)
+            # numpy gathers much faster with intp indices than with the stored int32 ones
+            low = table[self.start[part].astype(np.intp, copy=False)]
+            high = table[self.end[part].astype(np.intp, copy=False)]
+            with np.errstate(invalid="ignore"):  # non-finite values: the pieces are left out later
+                high -= low
+                high *= self.weight[part]
+                high += low  # low + t (high - low), as the split interpolates
+            out[part] = high
         return out
 
 
