@@ -376,9 +376,11 @@ def label_droplets(mesh: Mesh, c_cell, *, level: float = 0.5, connectivity: str 
     c0 = np.where(np.isfinite(c), c, 0.0)
     del c  # a mesh-wide array (rescaled between the plateaus): c0 from here on
     dV = mesh.cell_measures
-    weights = c0 * dV
     # all further work on the near cells (c above the band floor: cores and band)
     near = _near_cells(mesh, c0, level=level, band_floor=band_floor)
+    weights = c0  # c dV, in place: c0 is this call's own array and not read again
+    weights *= dV
+    del c0
     cells, core_local = near.cells, near.core_local
 
     n_pieces, piece = pieces(mesh, cells, near.core, near.neighbours, connectivity)
