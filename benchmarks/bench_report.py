@@ -12,6 +12,9 @@ Builds (or reuses) the XDMF series of ``bench_measure.py`` (``--kind``, ``--cell
   as many plain line plots (one line of 20 points, Agg canvas, PNG at the report's 110 dpi,
   written to files) as the report draws figures;
 * the same two again in this process, where matplotlib is imported already;
+* with ``--fork``, also the fresh-process report with its drawing fork (``report/_drawing.py``) forced off
+  and forced on, whatever the machine's load (the report itself forks only where a core is free); the
+  CPU seconds of a child include its drawing fork's;
 * ``report data``: ``measure_report_data`` (input hashes, snapshots, records) in this process.
 
 With ``--whole-run``, also whole ``measure`` processes on the series (``phasegauge.measure(path, 'c',
@@ -98,6 +101,12 @@ def plain_plots(count: int, out: str) -> None:
         figure.savefig(os.path.join(out, f"plot_{k}.png"), dpi=DPI)
 
 
+def _cpu() -> float:
+    """CPU seconds of this process and of its children that have ended (the report's drawing fork)."""
+    times = os.times()
+    return times.user + times.system + times.children_user + times.children_system
+
+
 def _child(job: str, pickled: str, out: str, count: str) -> None:
     import numpy  # noqa: F401  (the run has these before its report)
     import pandas  # noqa: F401
@@ -107,12 +116,16 @@ def _child(job: str, pickled: str, out: str, count: str) -> None:
 
     with open(pickled, "rb") as handle:
         result, data = pickle.load(handle)
-    cpu, t0 = time.process_time(), time.perf_counter()
-    if job == "report":
+    if job in ("report-fork", "report-one"):  # the drawing fork forced on or off, whatever the load
+        from phasegauge.report import _drawing
+
+        _drawing.fork_helps = (lambda count: True) if job == "report-fork" else (lambda count: False)
+    cpu, t0 = _cpu(), time.perf_counter()
+    if job.startswith("report"):
         write_report(result, data, out)
     else:
         plain_plots(int(count), out)
-    print(f"{time.perf_counter() - t0:.4f} {time.process_time() - cpu:.4f}")
+    print(f"{time.perf_counter() - t0:.4f} {_cpu() - cpu:.4f}")
 
 
 _WHOLE_RUN = """
@@ -206,6 +219,8 @@ def main(argv=None) -> None:
                         help="also time whole measure processes with and without the background plotting import")
     parser.add_argument("--whole-workers", default="1,2", help="the --workers of the whole runs, comma-separated")
     parser.add_argument("--figures", action="store_true", help="also time each figure in this process")
+    parser.add_argument("--fork", action="store_true",
+                        help="also the fresh-process report with the drawing fork forced off and on, alternately")
     parser.add_argument("--child", nargs=4, help=argparse.SUPPRESS)
     args = parser.parse_args(argv)
     if args.child:
@@ -227,6 +242,9 @@ def main(argv=None) -> None:
 
         for _ in range(max(1, args.repeat)):
             keep("report, fresh process", _run_child("report", pickled, os.path.join(scratch, "r"), count))
+            if args.fork:
+                for job, name in (("report-one", "one process"), ("report-fork", "drawing fork")):
+                    keep(f"report, fresh process, {name}", _run_child(job, pickled, os.path.join(scratch, "r"), count))
             keep("baseline, fresh process", _run_child("baseline", pickled, os.path.join(scratch, "b"), count))
             cpu, t0 = time.process_time(), time.perf_counter()
             write_report(result, data, os.path.join(scratch, "r_here"))
@@ -247,8 +265,10 @@ def main(argv=None) -> None:
                   + ("  (steps {:.3f} s wall {:.3f} s CPU, report {:.3f} s wall {:.3f} s CPU)".format(*parts)
                      if parts else ""))
         for where in ("fresh process", "this process"):
-            report, base = best[f"report, {where}"], best[f"baseline, {where}"]
-            print(f"report / baseline, {where}: {report[0] / base[0]:.2f} (wall)  {report[1] / base[1]:.2f} (CPU)")
+            base = best[f"baseline, {where}"]
+            for name in [n for n in best if n.startswith(f"report, {where}")]:
+                report = best[name]
+                print(f"{name} / baseline: {report[0] / base[0]:.2f} (wall)  {report[1] / base[1]:.2f} (CPU)")
         if args.whole_run:
             for workers in whole_workers:
                 with_, without = (best[f"measure -j {workers}, {p} import thread"] for p in ("with", "without"))
