@@ -148,14 +148,14 @@ def test_without_os_fork_everything_is_drawn_in_one_process(tmp_path, monkeypatc
 def test_the_fork_is_used_only_where_it_can_help(monkeypatch):
     import threading
 
-    monkeypatch.setattr(os, "getloadavg", lambda: (0.2, 0.2, 0.2), raising=False)
+    monkeypatch.setattr(_drawing, "_busy_cores", lambda: 0.2)
     monkeypatch.setattr(os, "sched_getaffinity", lambda pid: {0, 1}, raising=False)
     monkeypatch.setattr(os, "fork", lambda: None, raising=False)
     assert fork_helps(7) == (threading.active_count() == 1)
     assert not fork_helps(2)  # too few figures to share
-    monkeypatch.setattr(os, "getloadavg", lambda: (1.5, 1.0, 1.0))
+    monkeypatch.setattr(_drawing, "_busy_cores", lambda: 1.5)
     assert not fork_helps(7)  # the second core is busy
-    monkeypatch.setattr(os, "getloadavg", lambda: (0.2, 0.2, 0.2))
+    monkeypatch.setattr(_drawing, "_busy_cores", lambda: 0.2)
     monkeypatch.setattr(os, "sched_getaffinity", lambda pid: {0})
     assert not fork_helps(7)  # one core
     stop = threading.Event()
@@ -177,3 +177,19 @@ def test_the_fork_takes_about_half_the_weight():
     share = sum(weight[i] for i in theirs) / sum(weight)
     assert 0.4 <= share <= 0.6 and 0 < len(theirs) < len(makers)
     assert np.all(np.diff(theirs) > 0)
+
+
+def test_busy_cores_counts_other_work(monkeypatch):
+    busy = _drawing._busy_cores()
+    assert 0.0 <= busy < 10_000
+    if os.path.exists("/proc/loadavg"):  # Linux: the runnable threads now, this one left out
+        with open("/proc/loadavg", encoding="ascii") as handle:
+            total = int(handle.read().split()[4 - 1].partition("/")[2])
+        assert busy <= total
+    monkeypatch.setattr("builtins.open", _no_file)
+    monkeypatch.setattr(os, "getloadavg", lambda: (1.25, 1.0, 1.0), raising=False)
+    assert _drawing._busy_cores() == 1.25  # elsewhere: the last minute's load average
+
+
+def _no_file(*args, **kwargs):
+    raise OSError("no /proc here")

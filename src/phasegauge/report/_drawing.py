@@ -35,8 +35,8 @@ def fork_helps(count: int) -> bool:
 
     Yes where there are at least 3 figures, ``os.fork`` exists, this process runs no other thread
     and is not itself a worker process (``multiprocessing``), and a second core is free: two or
-    more cores available to this process, and the last minute's load average (where the system
-    gives one) under the cores less one.
+    more cores available to this process, and fewer than the cores less one busy with other work
+    (:func:`_busy_cores`).
     """
     import threading
 
@@ -47,11 +47,26 @@ def fork_helps(count: int) -> bool:
     if multiprocessing.parent_process() is not None:
         return False
     cores = len(os.sched_getaffinity(0)) if hasattr(os, "sched_getaffinity") else (os.cpu_count() or 1)
+    return cores >= 2 and _busy_cores() < cores - 1
+
+
+def _busy_cores() -> float:
+    """How many cores other work keeps busy now.
+
+    Where Linux gives it (``/proc/loadavg``), the threads runnable at this moment less this one: the
+    last minute's load average would still count the run's own steps, which have ended when the
+    report draws. Elsewhere that load average (``os.getloadavg``), or 0 where the system gives none.
+    """
     try:
-        busy = os.getloadavg()[0] if hasattr(os, "getloadavg") else 0.0
+        with open("/proc/loadavg", encoding="ascii") as handle:
+            runnable = handle.read().split()[3].partition("/")[0]
+        return max(float(runnable) - 1.0, 0.0)
+    except (OSError, IndexError, ValueError):
+        pass
+    try:
+        return os.getloadavg()[0] if hasattr(os, "getloadavg") else 0.0
     except OSError:  # no load average on this system
-        busy = 0.0
-    return cores >= 2 and busy < cores - 1
+        return 0.0
 
 
 def save_figure_makers(out: str, makers, written: list, plot_format: str = "png", *,
