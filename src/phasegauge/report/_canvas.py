@@ -146,10 +146,15 @@ def lay_out_column(figure, dpi: float) -> bool:
         return False
     left = right = 0.0
     tops, bottoms = [], []
+    from matplotlib.spines import Spine
+
     for span in sorted(rows):
         top = bottom = 0.0
         for ax in rows[span]:
-            tight = ax.get_tightbbox(renderer)
+            # the spines lie on the axes' edge (their ticks inside the tick labels' reach): measuring
+            # each (with its ticks) only adds half a line width, well within the padding
+            extra = [artist for artist in ax.get_default_bbox_extra_artists() if not isinstance(artist, Spine)]
+            tight = ax.get_tightbbox(renderer, bbox_extra_artists=extra)
             box = ax.get_position().transformed(figure.transFigure)
             left, right = max(left, box.x0 - tight.x0), max(right, tight.x1 - box.x1)
             top, bottom = max(top, tight.y1 - box.y1), max(bottom, box.y0 - tight.y0)
