@@ -24,10 +24,10 @@ from ._files import atomic_save_figure
 
 __all__ = ["save_figure_makers", "fork_helps"]
 
-#: how much each figure costs to make and draw, relative to a one-axes time plot (unnamed ones: 1);
-#: measured with ``benchmarks/bench_report.py --figures``
-_WEIGHTS = MappingProxyType({"interface_snapshots": 2.0, "interface_width": 1.5, "mixing_profile": 1.3,
-                             "phase_compositions": 1.5})
+#: how much each figure costs to make, lay out and draw, relative to a one-axes time plot (others: 1);
+#: from ``benchmarks/bench_report.py --figures`` (CPU seconds per figure, ninth round)
+_WEIGHTS = MappingProxyType({"interface_snapshots": 3.0, "interface_width": 2.0, "mixing_profile": 1.5,
+                             "droplet_sizes": 1.2, "phase_compositions": 1.5})
 
 
 def fork_helps(count: int) -> bool:
