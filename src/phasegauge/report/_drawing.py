@@ -139,9 +139,10 @@ def _name(exc: BaseException, stem: str) -> None:
 
 def _draw_split(out: str, makers, theirs: list, plot_format: str, pngs: list) -> None:
     """Draw the figures ``theirs`` in a fork and the others here; fill ``pngs`` by index."""
-    from ._plots import import_drawing
+    from importlib import import_module
 
-    import_drawing()  # before the fork: the fork then imports nothing
+    for module in ("matplotlib.figure", "matplotlib.backends.backend_agg"):  # before the fork: it imports
+        import_module(module)                                                # none of matplotlib again
     read_end, write_end = os.pipe()
     pid = os.fork()
     if pid == 0:  # the fork: draw, send, leave without running this process's exit handlers
@@ -163,7 +164,10 @@ def _draw_split(out: str, makers, theirs: list, plot_format: str, pngs: list) ->
         os.close(read_end)
         if received is None:  # leaving on an error here: the fork's figures are not wanted
             _stop(pid)
-        os.waitpid(pid, 0)
+        try:
+            os.waitpid(pid, 0)
+        except ChildProcessError:  # reaped already (a program that ignores SIGCHLD has its children reaped)
+            pass
     for index, (kind, value) in (received or {}).items():
         if kind == "error":
             raise _raised(value, makers[index][0])
