@@ -14,7 +14,8 @@ Builds (or reuses) the XDMF series of ``bench_measure.py`` (``--kind``, ``--cell
 * the same two again in this process, where matplotlib is imported already;
 * with ``--fork``, also the fresh-process report with its drawing fork (``report/_drawing.py``) forced off
   and forced on, whatever the machine's load (the report itself forks only where a core is free); the
-  CPU seconds of a child include its drawing fork's;
+  CPU seconds of a child include its drawing fork's; with ``--whole-run`` also whole runs (with the
+  import thread) with the report's drawing fork forced off and on;
 * ``report data``: ``measure_report_data`` (input hashes, snapshots, records) in this process.
 
 With ``--whole-run``, also whole ``measure`` processes on the series (``phasegauge.measure(path, 'c',
@@ -138,6 +139,9 @@ if sys.argv[3] == "without":
     run_measure._import_drawing = lambda: None
 else:  # the thread whatever the machine's load (the run itself starts it only where a core is free)
     run_measure._spare_core = lambda workers, scheduler: True
+if sys.argv[5] != "auto":  # the report's drawing fork forced on or off
+    from phasegauge.report import _drawing
+    _drawing.fork_helps = (lambda count: True) if sys.argv[5] == "on" else (lambda count: False)
 marks = {}
 run_steps, report = executors.run_steps, phasegauge.report.write_measure_report
 
@@ -162,7 +166,7 @@ print(*marks["steps"], *marks["report"])
 """
 
 
-def _whole_run(path: str, out: str, preload: str, workers: int) -> tuple:
+def _whole_run(path: str, out: str, preload: str, workers: int, fork: str = "auto") -> tuple:
     """Wall and CPU seconds of a whole measure process (CPU: the child and its forks); then wall and
     CPU seconds of its steps (``run_steps``) and of its report (CPU: the process and the children it
     reaped meanwhile: the step workers, the report's drawing fork)."""
@@ -171,7 +175,7 @@ def _whole_run(path: str, out: str, preload: str, workers: int) -> tuple:
     env = dict(os.environ, MPLBACKEND="Agg")
     before = resource.getrusage(resource.RUSAGE_CHILDREN)
     t0 = time.perf_counter()
-    done = subprocess.run([sys.executable, "-c", _WHOLE_RUN, path, out, preload, str(workers)], env=env,
+    done = subprocess.run([sys.executable, "-c", _WHOLE_RUN, path, out, preload, str(workers), fork], env=env,
                           check=True, capture_output=True, text=True)
     wall = time.perf_counter() - t0
     after = resource.getrusage(resource.RUSAGE_CHILDREN)
@@ -258,6 +262,10 @@ def main(argv=None) -> None:
                     for preload in ("with", "without"):
                         keep(f"measure -j {workers}, {preload} import thread",
                              _whole_run(info["path"], os.path.join(scratch, "m"), preload, workers))
+                    if args.fork:  # the thread on, the report's drawing fork forced off and on
+                        for fork in ("off", "on"):
+                            keep(f"measure -j {workers}, with import thread, fork {fork}",
+                                 _whole_run(info["path"], os.path.join(scratch, "m"), "with", workers, fork))
         best = {name: min(values) for name, values in rows.items()}
         print(f"series: {info['kind']}, {info['cells']} cells, {info['steps']} steps; the report draws {count} figures")
         print(f"report data (input hashes, snapshots): {data_seconds:.3f} s")
@@ -279,6 +287,10 @@ def main(argv=None) -> None:
                     runs = rows[f"measure -j {workers}, {preload} import thread"]
                     print(f"  {preload:7s} the thread, each round (wall / CPU s): "
                           + ", ".join(f"{r[0]:.2f} / {r[1]:.2f}" for r in runs))
+                for fork in ("off", "on") if args.fork else ():
+                    runs = rows[f"measure -j {workers}, with import thread, fork {fork}"]
+                    print(f"  drawing fork {fork}: the report inside each run (wall / CPU s): "
+                          + ", ".join(f"{r[4]:.3f} / {r[5]:.3f}" for r in runs))
         if args.figures:
             _time_figures(result, data, args.repeat)
     finally:
