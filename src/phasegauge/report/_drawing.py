@@ -143,8 +143,22 @@ def _draw_split(out: str, makers, theirs: list, plot_format: str, pngs: list) ->
 
     for module in ("matplotlib.figure", "matplotlib.backends.backend_agg"):  # before the fork: it imports
         import_module(module)                                                # none of matplotlib again
+    import gc
+
+    # the objects made so far leave the collector's view while the fork lives: a collection would
+    # write to every one of them, and each page written is copied (in the fork, and here while it runs)
+    freeze = gc.get_freeze_count() == 0  # (a program that froze objects itself keeps them so)
+    if freeze:
+        gc.freeze()
     read_end, write_end = os.pipe()
-    pid = os.fork()
+    try:
+        pid = os.fork()
+    except BaseException:
+        if freeze:
+            gc.unfreeze()
+        os.close(read_end)
+        os.close(write_end)
+        raise
     if pid == 0:  # the fork: draw, send, leave without running this process's exit handlers
         status = 1
         try:
@@ -168,6 +182,8 @@ def _draw_split(out: str, makers, theirs: list, plot_format: str, pngs: list) ->
             os.waitpid(pid, 0)
         except ChildProcessError:  # reaped already (a program that ignores SIGCHLD has its children reaped)
             pass
+        if freeze:
+            gc.unfreeze()
     for index, (kind, value) in (received or {}).items():
         if kind == "error":
             raise _raised(value, makers[index][0])
