@@ -12,6 +12,10 @@ Builds (or reuses) the XDMF series of ``bench_measure.py`` (``--kind``, ``--cell
   as many plain line plots (one line of 20 points, Agg canvas, PNG at the report's 110 dpi,
   written to files) as the report draws figures;
 * the same two again in this process, where matplotlib is imported already;
+* with ``--fork``, also the fresh-process report with its drawing fork (``report/_drawing.py``) forced off
+  and forced on, whatever the machine's load (the report itself forks only where a core is free); the
+  CPU seconds of a child include its drawing fork's; with ``--whole-run`` also whole runs (with the
+  import thread) with the report's drawing fork forced off and on;
 * ``report data``: ``measure_report_data`` (input hashes, snapshots, records) in this process.
 
 With ``--whole-run``, also whole ``measure`` processes on the series (``phasegauge.measure(path, 'c',
@@ -98,6 +102,12 @@ def plain_plots(count: int, out: str) -> None:
         figure.savefig(os.path.join(out, f"plot_{k}.png"), dpi=DPI)
 
 
+def _cpu() -> float:
+    """CPU seconds of this process and of its children that have ended (the report's drawing fork)."""
+    times = os.times()
+    return times.user + times.system + times.children_user + times.children_system
+
+
 def _child(job: str, pickled: str, out: str, count: str) -> None:
     import numpy  # noqa: F401  (the run has these before its report)
     import pandas  # noqa: F401
@@ -107,16 +117,20 @@ def _child(job: str, pickled: str, out: str, count: str) -> None:
 
     with open(pickled, "rb") as handle:
         result, data = pickle.load(handle)
-    cpu, t0 = time.process_time(), time.perf_counter()
-    if job == "report":
+    if job in ("report-fork", "report-one"):  # the drawing fork forced on or off, whatever the load
+        from phasegauge.report import _drawing
+
+        _drawing.fork_helps = (lambda count: True) if job == "report-fork" else (lambda count: False)
+    cpu, t0 = _cpu(), time.perf_counter()
+    if job.startswith("report"):
         write_report(result, data, out)
     else:
         plain_plots(int(count), out)
-    print(f"{time.perf_counter() - t0:.4f} {time.process_time() - cpu:.4f}")
+    print(f"{time.perf_counter() - t0:.4f} {_cpu() - cpu:.4f}")
 
 
 _WHOLE_RUN = """
-import sys, time, warnings
+import os, sys, time, warnings
 import phasegauge
 import phasegauge.report
 import phasegauge.run.executors as executors
@@ -125,17 +139,20 @@ if sys.argv[3] == "without":
     run_measure._import_drawing = lambda: None
 else:  # the thread whatever the machine's load (the run itself starts it only where a core is free)
     run_measure._spare_core = lambda workers, scheduler: True
+if sys.argv[5] != "auto":  # the report's drawing fork forced on or off
+    from phasegauge.report import _drawing
+    _drawing.fork_helps = (lambda count: True) if sys.argv[5] == "on" else (lambda count: False)
 marks = {}
 run_steps, report = executors.run_steps, phasegauge.report.write_measure_report
 
 
 def timed(name, function):
     def call(*args, **kwargs):
-        t0, c0 = time.perf_counter(), time.process_time()
+        t0, c0 = time.perf_counter(), sum(os.times()[:4])  # this process and its reaped children (a drawing fork)
         try:
             return function(*args, **kwargs)
         finally:
-            marks[name] = (time.perf_counter() - t0, time.process_time() - c0)
+            marks[name] = (time.perf_counter() - t0, sum(os.times()[:4]) - c0)
     return call
 
 
@@ -149,15 +166,16 @@ print(*marks["steps"], *marks["report"])
 """
 
 
-def _whole_run(path: str, out: str, preload: str, workers: int) -> tuple:
+def _whole_run(path: str, out: str, preload: str, workers: int, fork: str = "auto") -> tuple:
     """Wall and CPU seconds of a whole measure process (CPU: the child and its forks); then wall and
-    CPU seconds (this process only) of its steps (``run_steps``) and of its report."""
+    CPU seconds of its steps (``run_steps``) and of its report (CPU: the process and the children it
+    reaped meanwhile: the step workers, the report's drawing fork)."""
     import resource
 
     env = dict(os.environ, MPLBACKEND="Agg")
     before = resource.getrusage(resource.RUSAGE_CHILDREN)
     t0 = time.perf_counter()
-    done = subprocess.run([sys.executable, "-c", _WHOLE_RUN, path, out, preload, str(workers)], env=env,
+    done = subprocess.run([sys.executable, "-c", _WHOLE_RUN, path, out, preload, str(workers), fork], env=env,
                           check=True, capture_output=True, text=True)
     wall = time.perf_counter() - t0
     after = resource.getrusage(resource.RUSAGE_CHILDREN)
@@ -206,6 +224,8 @@ def main(argv=None) -> None:
                         help="also time whole measure processes with and without the background plotting import")
     parser.add_argument("--whole-workers", default="1,2", help="the --workers of the whole runs, comma-separated")
     parser.add_argument("--figures", action="store_true", help="also time each figure in this process")
+    parser.add_argument("--fork", action="store_true",
+                        help="also the fresh-process report with the drawing fork forced off and on, alternately")
     parser.add_argument("--child", nargs=4, help=argparse.SUPPRESS)
     args = parser.parse_args(argv)
     if args.child:
@@ -227,18 +247,25 @@ def main(argv=None) -> None:
 
         for _ in range(max(1, args.repeat)):
             keep("report, fresh process", _run_child("report", pickled, os.path.join(scratch, "r"), count))
+            if args.fork:
+                for job, name in (("report-one", "one process"), ("report-fork", "drawing fork")):
+                    keep(f"report, fresh process, {name}", _run_child(job, pickled, os.path.join(scratch, "r"), count))
             keep("baseline, fresh process", _run_child("baseline", pickled, os.path.join(scratch, "b"), count))
-            cpu, t0 = time.process_time(), time.perf_counter()
+            cpu, t0 = _cpu(), time.perf_counter()
             write_report(result, data, os.path.join(scratch, "r_here"))
-            keep("report, this process", (time.perf_counter() - t0, time.process_time() - cpu))
-            cpu, t0 = time.process_time(), time.perf_counter()
+            keep("report, this process", (time.perf_counter() - t0, _cpu() - cpu))
+            cpu, t0 = _cpu(), time.perf_counter()
             plain_plots(count, os.path.join(scratch, "b_here"))
-            keep("baseline, this process", (time.perf_counter() - t0, time.process_time() - cpu))
+            keep("baseline, this process", (time.perf_counter() - t0, _cpu() - cpu))
             if args.whole_run:
                 for workers in whole_workers:
                     for preload in ("with", "without"):
                         keep(f"measure -j {workers}, {preload} import thread",
                              _whole_run(info["path"], os.path.join(scratch, "m"), preload, workers))
+                    if args.fork:  # the thread on, the report's drawing fork forced off and on
+                        for fork in ("off", "on"):
+                            keep(f"measure -j {workers}, with import thread, fork {fork}",
+                                 _whole_run(info["path"], os.path.join(scratch, "m"), "with", workers, fork))
         best = {name: min(values) for name, values in rows.items()}
         print(f"series: {info['kind']}, {info['cells']} cells, {info['steps']} steps; the report draws {count} figures")
         print(f"report data (input hashes, snapshots): {data_seconds:.3f} s")
@@ -247,8 +274,10 @@ def main(argv=None) -> None:
                   + ("  (steps {:.3f} s wall {:.3f} s CPU, report {:.3f} s wall {:.3f} s CPU)".format(*parts)
                      if parts else ""))
         for where in ("fresh process", "this process"):
-            report, base = best[f"report, {where}"], best[f"baseline, {where}"]
-            print(f"report / baseline, {where}: {report[0] / base[0]:.2f} (wall)  {report[1] / base[1]:.2f} (CPU)")
+            base = best[f"baseline, {where}"]
+            for name in [n for n in best if n.startswith(f"report, {where}")]:
+                report = best[name]
+                print(f"{name} / baseline: {report[0] / base[0]:.2f} (wall)  {report[1] / base[1]:.2f} (CPU)")
         if args.whole_run:
             for workers in whole_workers:
                 with_, without = (best[f"measure -j {workers}, {p} import thread"] for p in ("with", "without"))
@@ -258,6 +287,10 @@ def main(argv=None) -> None:
                     runs = rows[f"measure -j {workers}, {preload} import thread"]
                     print(f"  {preload:7s} the thread, each round (wall / CPU s): "
                           + ", ".join(f"{r[0]:.2f} / {r[1]:.2f}" for r in runs))
+                for fork in ("off", "on") if args.fork else ():
+                    runs = rows[f"measure -j {workers}, with import thread, fork {fork}"]
+                    print(f"  drawing fork {fork}: the report inside each run (wall / CPU s): "
+                          + ", ".join(f"{r[4]:.3f} / {r[5]:.3f}" for r in runs))
         if args.figures:
             _time_figures(result, data, args.repeat)
     finally:

@@ -2,6 +2,8 @@
 
 import os
 
+import pytest
+
 os.environ.setdefault("MPLBACKEND", "Agg")
 os.environ.setdefault("PYVISTA_OFF_SCREEN", "true")
 
@@ -15,6 +17,16 @@ try:  # pragma: no cover - pyvista is a dependency, but keep collection working 
     pyvista.OFF_SCREEN = True
 except Exception:  # pragma: no cover
     pass
+
+
+@pytest.fixture(autouse=True)
+def _reports_draw_in_one_process(monkeypatch):
+    """A report written in a test draws all its figures in the test's process whatever the machine's
+    load, so a test that watches matplotlib (figures saved, calls made) sees every figure;
+    ``tests/report/test_drawing_fork.py`` forces the drawing fork on and off itself."""
+    from phasegauge.report import _drawing
+
+    monkeypatch.setattr(_drawing, "fork_helps", lambda count: False)
 
 
 def subprocess_env():

@@ -5,6 +5,7 @@ import pytest
 
 from phasegauge.analysis.thermo import (DoubleWellModel, RegularSolutionModel, bulk_compositions, equilibrium_at,
                                         equilibrium_gap, gibbs_thomson_shift, mixture_state, solute_distribution)
+from phasegauge.errors import OptionError
 from phasegauge.meshgen import grid_mesh
 
 LEAN, RICH = 0.070720, 0.929280          # regular solution A = 3 (analytic binodal, REFERENCES.md)
@@ -54,6 +55,18 @@ def test_mixture_state_on_both_sides_of_the_binodal_and_spinodal():
     assert mixture_state(model, 300.0, 0.0707) == "stable"
     assert mixture_state(model, 300.0, 0.0708) == "metastable"
     assert mixture_state(RegularSolutionModel(A_a=1.5), 300.0, 0.5) == "stable"   # one stable phase
+
+
+def test_mixture_state_from_an_equilibrium_already_computed():
+    # the same analytic A = 3 states (binodal 0.070720, spinodal 0.211325) from equilibrium_at's pair
+    x = [0.05, 0.0707, 0.0708, 0.2113, 0.2114, 0.5, 0.7887, 0.7886, 0.9293, 0.95]
+    for model in (RegularSolutionModel(A_a=3.0), RegularSolutionModel(A_a=1.5)):
+        eq = equilibrium_at(model, 300.0)
+        assert list(mixture_state(model, 300.0, x, equilibrium=eq)) == list(mixture_state(model, 300.0, x))
+    assert list(mixture_state(RegularSolutionModel(A_a=3.0), 300.0, x[:6])) == [
+        "stable", "stable", "metastable", "metastable", "unstable", "unstable"]
+    with pytest.raises(OptionError, match="the equilibrium is at 300 K, not at 310 K"):
+        mixture_state(RegularSolutionModel(A_a=3.0), 310.0, 0.5, equilibrium=eq)
 
 
 def test_solute_partition_extraction_and_lever_rule():

@@ -1,4 +1,4 @@
-"""The report's PNG files (Pillow at the fastest level): they decode (Pillow) to the pixels
+"""The report's PNG files (zlib at the fastest level): they decode (Pillow) to the pixels
 matplotlib's own PNG writer stores for the same figure."""
 
 import io
@@ -43,3 +43,18 @@ def test_encode_png_round_trips_rgb_and_rgba():
         image.load()  # Pillow checks the chunks' CRC-32 and the zlib stream while decoding
         assert image.mode == mode
         np.testing.assert_array_equal(np.asarray(image), pixels)
+
+
+def test_encode_png_at_each_level_decodes_to_the_same_pixels():
+    """Any zlib level gives the same image (Pillow decodes it); a higher level packs plots no larger."""
+    fig = _figure()
+    fig.set_dpi(80)
+    raw = io.BytesIO()
+    fig.savefig(raw, format="raw", dpi=80)
+    pixels = np.frombuffer(raw.getvalue(), dtype=np.uint8).reshape(160, 240, 4)[..., :3]
+    sizes = []
+    for level in (0, 1, 6, 9):
+        data = encode_png(pixels, level=level)
+        sizes.append(len(data))
+        np.testing.assert_array_equal(np.asarray(Image.open(io.BytesIO(data))), pixels)
+    assert sizes[0] > sizes[1] >= sizes[3]

@@ -73,3 +73,26 @@ def test_a_report_without_plots_never_imports_matplotlib(tmp_path):
                           capture_output=True, text=True, env=env, check=True)
     assert done.stdout.strip().splitlines()[-1] == "False", done.stdout + done.stderr
     assert os.path.exists(tmp_path / "out" / "report.html")
+
+
+def test_a_report_with_plots_imports_no_pyplot_and_no_image_plugins(tmp_path):
+    """A run of several steps draws its plots on matplotlib's Agg canvas without pyplot (no window,
+    no global figure state) and encodes its PNG files without Pillow's image plugins (checked in a
+    fresh interpreter's sys.modules)."""
+    import subprocess
+
+    from phasegauge.meshgen import grid_mesh, to_meshio
+
+    mesh = grid_mesh((8, 8), kind="quad")
+    (tmp_path / "series").mkdir()
+    for step in range(3):
+        c = (mesh.cell_centroids[:, 0] > 0.3 + 0.1 * step).astype(float)
+        to_meshio(mesh, cell_data={"alpha": c}).write(tmp_path / "series" / f"s_{step}.vtu")
+    code = ("import sys, phasegauge; phasegauge.measure(sys.argv[1], 'alpha', out=sys.argv[2], snapshots=0); "
+            "print(sorted(m for m in sys.modules if m == 'matplotlib.pyplot' or m.startswith('PIL.') "
+            "and m.endswith('ImagePlugin') and m != 'PIL.PngImagePlugin'))")
+    env = dict(os.environ, PYTHONPATH=os.path.join(ROOT, "src"), MPLBACKEND="Agg")
+    done = subprocess.run([sys.executable, "-c", code, str(tmp_path / "series"), str(tmp_path / "out")],
+                          capture_output=True, text=True, env=env)
+    assert done.returncode == 0 and done.stdout.strip().splitlines()[-1] == "[]", done.stdout + done.stderr
+    assert [name for name in os.listdir(tmp_path / "out") if name.endswith(".png")]

@@ -11,13 +11,27 @@ import numpy as np
 from scipy import sparse
 from scipy.sparse import csgraph
 
+from ..model._grouping import index_dtype
 from ..model.mesh import Mesh
 
 __all__ = ["share_band", "finish_far_band"]
 
 
-def _face_lengths(mesh: Mesh, pairs: np.ndarray) -> np.ndarray:
-    return np.linalg.norm(mesh.cell_centroids[pairs[:, 0]] - mesh.cell_centroids[pairs[:, 1]], axis=1)
+#: face pairs measured at a time: the (n, 3) temporaries of a chunk, not of the whole band
+_PAIR_CHUNK = 1 << 16
+
+
+def _face_lengths(mesh: Mesh, pairs: np.ndarray, cells: np.ndarray | None = None) -> np.ndarray:
+    """Centroid distance across each face pair, chunk by chunk (each row's norm is the same number).
+
+    ``pairs`` in mesh numbers, or in the local numbers of ``cells``.
+    """
+    centroids = mesh.cell_centroids
+    out = np.empty(pairs.shape[0])
+    for lo in range(0, pairs.shape[0], _PAIR_CHUNK):
+        part = pairs[lo:lo + _PAIR_CHUNK] if cells is None else cells[pairs[lo:lo + _PAIR_CHUNK]]
+        out[lo:lo + part.shape[0]] = np.linalg.norm(centroids[part[:, 0]] - centroids[part[:, 1]], axis=1)
+    return out
 
 
 def _grid_order(mesh: Mesh) -> np.ndarray:
@@ -30,7 +44,7 @@ def _near_band_pairs(neighbours: np.ndarray, band_local: np.ndarray) -> np.ndarr
     """Face pairs (local numbers) of the near cells with at least one band cell, from their local
     neighbour rows: the pairs of ``mesh.face_pairs`` between near cells, in the same (sorted) order."""
     k, width = neighbours.shape
-    rows = np.repeat(np.arange(k), width)
+    rows = np.repeat(np.arange(k, dtype=neighbours.dtype), width)  # the local numbers' type (int32)
     cols = neighbours.ravel()
     keep = cols < k
     rows, cols = rows[keep], cols[keep]
@@ -187,20 +201,24 @@ def _finish_band_by_distance(mesh, pairs, shared, source_cell, extra_pairs, cell
 
     ``pairs``, ``shared`` and ``source_cell`` in mesh numbers, or in the local numbers of ``cells``.
     """
-    on_mesh = pairs if cells is None else cells[pairs]
-    length = _face_lengths(mesh, on_mesh)
+    length = _face_lengths(mesh, pairs, cells)
     if extra_pairs.size:  # across a periodic boundary the centroid distance is meaningless: use h
+        on_mesh = pairs if cells is None else cells[pairs]
         key = np.sort(on_mesh, axis=1) @ np.array([mesh.n_cells, 1])
         across = np.isin(key, np.sort(extra_pairs, axis=1) @ np.array([mesh.n_cells, 1]))
         h = mesh.cell_sizes
         length[across] = 0.5 * (h[on_mesh[across, 0]] + h[on_mesh[across, 1]])
-    del on_mesh
-    length = np.maximum(length, 1e-300)
+        del on_mesh
+    np.maximum(length, 1e-300, out=length)
     used = np.zeros(mesh.n_cells if cells is None else cells.size, dtype=bool)
     used[pairs.ravel()] = True
     nodes = np.flatnonzero(used)
-    local = (np.cumsum(used) - 1)[pairs]
+    number = np.cumsum(used, dtype=index_dtype(used.size + 1))  # int32 where it fits: (n, 2) below
+    number -= 1
+    local = number[pairs]
+    del number
     graph = sparse.coo_matrix((length, (local[:, 0], local[:, 1])), shape=(nodes.size, nodes.size)).tocsr()
+    del length, local  # the graph holds them
     sources = np.flatnonzero(shared[nodes] >= 0)
     dist, _, origin = csgraph.dijkstra(graph, directed=False, indices=sources, min_only=True,
                                        return_predecessors=True)

@@ -296,18 +296,17 @@ def cross_sections(mesh: Mesh, c_point_or_indicator, *, axis="x", positions=None
         sources.append(values)
     k = mesh.dimension
 
-    def on_corners(field, a, b):
+    def on_corners(field, p):
         values, (_, location, offset) = sources[field], fields[field]
         if location == "point":
-            return [values[sections.corners[i, a:b].astype(np.intp)] for i in range(k)]
-        return [values[sections.parent[a:b].astype(np.intp)] - offset] * k
+            return [values[sections.corners[p][:, i].astype(np.intp)] for i in range(k)]
+        return [values[sections.parent[p].astype(np.intp)] - offset] * k
 
     rows, moments = [], []
     for p, position in enumerate(positions):
-        a, b = sections.offsets[p], sections.offsets[p + 1]
-        w = sections.measures[a:b]
-        cv = on_corners(0, a, b)
-        un = None if u is None else on_corners(1, a, b)
+        w = sections.measures[p]
+        cv = on_corners(0, p)
+        un = None if u is None else on_corners(1, p)
         if not all_finite:
             # parts where c or the velocity is not finite are left out (of all but the area)
             good = np.logical_and.reduce([np.isfinite(v) for v in cv + (un or [])])

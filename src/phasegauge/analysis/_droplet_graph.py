@@ -12,7 +12,7 @@ from scipy import sparse
 from scipy.sparse import csgraph
 from scipy.spatial import cKDTree
 
-from ..model._faces import SPLIT_FACES
+from ..model._faces import SPLIT_FACES, pairs_as_neighbours
 from ..model.mesh import Mesh
 
 __all__ = ["periodic_pairs", "neighbour_table", "pieces", "join_periodic"]
@@ -107,6 +107,8 @@ def _build_neighbour_table(mesh: Mesh) -> np.ndarray:
             order = by_b[lo:lo + _PAIR_CHUNK]
             rows = b[order].astype(np.intp)
             flat[rows * width + rank + off_b[rows]] = a[order]
+        del a, b, p, by_b
+        pairs_as_neighbours(mesh, table)  # the mesh reads its face pairs back from the table
     return table
 
 

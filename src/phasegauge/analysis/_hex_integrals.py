@@ -128,7 +128,7 @@ class _HexCells:
         self.known = np.zeros(mesh.n_points, dtype=bool)
         self.need = np.zeros(mesh.n_points, dtype=bool)
         self.band = self.mixed = self.total_gradient = 0.0
-        self.chunks = []  # (tetrahedra, corner ids (n, 8), weights (n_tetrahedra, n))
+        self.chunks = []  # (tetrahedra, block connectivity, its rows (n,), weights (n_tetrahedra, n))
         self.count = 0
         for block, start, (local, codes) in zip(mesh.blocks, mesh.block_offsets[:-1], rows):
             if local.size == 0:
@@ -140,9 +140,11 @@ class _HexCells:
                 for lo in range(0, chosen.size, _CELL_CHUNK):
                     part = chosen[lo:lo + _CELL_CHUNK]
                     cells = start + part
-                    self._chunk(tets, block.connectivity[part], clipped, columns, low[cells], high[cells])
+                    weights = self._chunk(tets, block.connectivity[part], clipped, columns, low[cells], high[cells])
+                    self.chunks.append((tets, block.connectivity, part, weights))
 
-    def _chunk(self, tets, conn, values, columns, low, high) -> None:
+    def _chunk(self, tets, conn, values, columns, low, high) -> np.ndarray:
+        """Integrals of one chunk of cells added up; returns the tetrahedra's gradient weights."""
         ids = [conn[:, q] for q in range(8)]
         v = [values[i] for i in ids]
         X = [[col[i] for col in columns] for i in ids]
@@ -215,12 +217,13 @@ class _HexCells:
                                                                 np.concatenate([vc[b] for _, b, _ in tets]),
                                                                 np.concatenate([vc[f] for _, _, f in tets]),
                                                                 np.tile(vm[cut], len(tets))])
-        self.chunks.append((tets, conn, weights))
+        return weights
 
     def moments(self, dist: np.ndarray) -> np.ndarray:
         """(m0, m1, m2) over the tetrahedra of cells whose eight corner distances are known."""
         m = np.zeros(3)
-        for tets, conn, weights in self.chunks:
+        for tets, connectivity, part, weights in self.chunks:
+            conn = connectivity[part]  # the chunk's corners gathered again: 8 bytes a cell kept, not 64
             d = [dist[conn[:, q]] for q in range(8)]
             dm = (((((((d[0] + d[1]) + d[2]) + d[3]) + d[4]) + d[5]) + d[6]) + d[7]) / 8.0
             ok = np.isfinite(dm)

@@ -52,6 +52,9 @@ from ._droplet_measures import (TABLE_COLUMNS, droplet_boxes, droplet_table, mea
 
 __all__ = ["DropletLabels", "label_droplets", "TABLE_COLUMNS"]
 
+#: near cells whose neighbour rows are renumbered at a time
+_ROW_CHUNK = 1 << 16
+
 
 @dataclass(frozen=True)
 class DropletLabels:
@@ -176,7 +179,10 @@ def _near_cells(mesh: Mesh, c0: np.ndarray, *, level: float, band_floor: float) 
     local[cells] = np.arange(k)
     c_near = c0[cells]
     core = c_near > level
-    neighbours = np.take(local, np.take(neighbour_table(mesh), cells, axis=0))  # take: faster than [] on rows
+    table = neighbour_table(mesh)
+    neighbours = np.empty((k, table.shape[1]), dtype=local.dtype)
+    for lo in range(0, k, _ROW_CHUNK):  # per chunk of rows: no second (k, m) array of mesh numbers
+        np.take(local, np.take(table, cells[lo:lo + _ROW_CHUNK], axis=0), out=neighbours[lo:lo + _ROW_CHUNK])
     return _NearCells(cells=cells, local=local, c=c_near, core=core, core_local=np.flatnonzero(core),
                       neighbours=neighbours)
 
@@ -368,10 +374,13 @@ def label_droplets(mesh: Mesh, c_cell, *, level: float = 0.5, connectivity: str 
     icells, isizes = _contour_arrays(mesh, interface_cells, interface_sizes)
 
     c0 = np.where(np.isfinite(c), c, 0.0)
+    del c  # a mesh-wide array (rescaled between the plateaus): c0 from here on
     dV = mesh.cell_measures
-    weights = c0 * dV
     # all further work on the near cells (c above the band floor: cores and band)
     near = _near_cells(mesh, c0, level=level, band_floor=band_floor)
+    weights = c0  # c dV, in place: c0 is this call's own array and not read again
+    weights *= dV
+    del c0
     cells, core_local = near.cells, near.core_local
 
     n_pieces, piece = pieces(mesh, cells, near.core, near.neighbours, connectivity)

@@ -22,6 +22,7 @@ from ..model.corners import corner_mean
 from ..model.mixture_models import DoubleWellModel
 from ._binodal import _stability, binodal, spinodal
 from ._signed_distance import _ContourGeometry, _maybe_near_cells, _signed_distance
+from ._sums import dot
 
 __all__ = ["interface_distance", "bulk_compositions", "mixture_state", "solute_distribution", "equilibrium_gap",
            "gibbs_thomson_shift", "MIXTURE_STATES"]
@@ -196,7 +197,7 @@ def equilibrium_gap(bulk_lean, bulk_rich, binodal_lean, binodal_rich):
     return float(np.max(np.abs([bulk_lean - binodal_lean, bulk_rich - binodal_rich])))
 
 
-def mixture_state(model, temperature, composition):
+def mixture_state(model, temperature, composition, *, equilibrium=None):
     """Whether a mixture of this overall composition is stable, metastable or unstable.
 
     Parameters
@@ -204,6 +205,9 @@ def mixture_state(model, temperature, composition):
     model : NrtlModel, RegularSolutionModel or DoubleWellModel
     temperature : float, in K
     composition : float or array_like, mole fraction
+    equilibrium : BinaryEquilibrium, optional
+        ``equilibrium_at(model, temperature)`` when already computed (its binodal and spinodal
+        are the same numbers; saves the work).
 
     Returns
     -------
@@ -211,13 +215,21 @@ def mixture_state(model, temperature, composition):
         ``'stable'`` outside the binodal (or where one phase is stable), ``'unstable'`` inside
         the spinodal, ``'metastable'`` between.
     """
-    s_lean, s_rich = spinodal(model, temperature)
-    b_lean, b_rich, _ = binodal(model, temperature, spinodal_pair=(s_lean, s_rich))
+    if equilibrium is None:
+        pair = spinodal(model, temperature)
+        lean, rich, _ = binodal(model, temperature, spinodal_pair=pair)
+        s_lean, s_rich, b_lean, b_rich = pair[0][0], pair[1][0], lean[0], rich[0]
+    elif equilibrium.temperature != float(temperature):
+        raise OptionError(f"the equilibrium is at {equilibrium.temperature:g} K, not at {float(temperature):g} K",
+                          fix="pass equilibrium_at(model, temperature) of the same temperature")
+    else:
+        s_lean, s_rich = equilibrium.spinodal_lean, equilibrium.spinodal_rich
+        b_lean, b_rich = equilibrium.binodal_lean, equilibrium.binodal_rich
     x = np.asarray(composition, dtype=float)
     state = np.full(x.shape, "stable", dtype=object)
-    if np.isfinite(b_lean[0]):
-        state[(x > b_lean[0]) & (x < b_rich[0])] = "metastable"
-        state[(x > s_lean[0]) & (x < s_rich[0])] = "unstable"
+    if np.isfinite(b_lean):
+        state[(x > b_lean) & (x < b_rich)] = "metastable"
+        state[(x > s_lean) & (x < s_rich)] = "unstable"
     return str(state) if state.ndim == 0 else state.astype(str)
 
 
@@ -257,11 +269,11 @@ def solute_distribution(mesh, solute, distance, *, width, multiple=4.0, receivin
     def mean(mask, v):
         m = mask & finite
         total = weights[m].sum()
-        return float(np.dot(weights[m], v[m]) / total) if total > 0 else float("nan")
+        return dot(weights[m], v[m]) / float(total) if total > 0 else float("nan")
 
-    amount = weights[finite] @ values[finite]
+    amount = dot(weights[finite], values[finite])  # (no BLAS: see _sums.dot)
     out = {"solute_receiving": mean(take, values), "solute_other": mean(other, values),
-           "extraction_progress": float(weights[side & finite] @ values[side & finite] / amount)
+           "extraction_progress": dot(weights[side & finite], values[side & finite]) / amount
            if amount > 0 else float("nan")}
     out["partition_coefficient"] = (out["solute_receiving"] / out["solute_other"]
                                     if out["solute_other"] > 0 else float("nan"))

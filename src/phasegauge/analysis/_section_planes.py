@@ -10,7 +10,7 @@ interpolates its fields along the cut edges (:mod:`._cross_sections` sums the mo
 
 from __future__ import annotations
 
-from dataclasses import dataclass
+from dataclasses import dataclass, replace
 from types import MappingProxyType
 
 import numpy as np
@@ -24,14 +24,18 @@ from ..model.simplices import needs_centres, split_cells
 #: section operators kept per mesh: the latest ones built (a series uses one, for all its steps)
 _KEEP = 4
 
+#: cut edges interpolated at a time (:meth:`_Sections.cut_values`)
+_CUT_CHUNK = 1 << 16
+
 
 @dataclass(frozen=True)
 class _Sections:
     """Plane sections of a mesh as fixed maps from field values to section pieces.
 
     Mesh-only: built once per mesh, axis and plane positions, then reused for
-    every step. The pieces (triangles in 3D, segments in 2D) of plane p are
-    ``offsets[p]:offsets[p + 1]``. A piece corner lies on a cut edge of the
+    every step. The pieces (triangles in 3D, segments in 2D) and cut edges are kept
+    plane by plane, as they were built (joining them would hold every array twice while
+    it is copied: the first step's memory peak). A piece corner lies on a cut edge of the
     cell split, between a node below the plane (``start``) and one above
     (``end``), at ``weight`` t along it: a point field is ``x[start] + t
     (x[end] - x[start])`` there, exactly as the split interpolates it. Cut
@@ -42,32 +46,36 @@ class _Sections:
     """
 
     locations: frozenset  # of 'point', 'cell': the fields this operator serves
-    offsets: np.ndarray  # (n_planes + 1,) first piece of each plane
     areas: np.ndarray  # (n_planes,) section area (3D) or length (2D)
-    measures: np.ndarray  # (n_pieces,) piece areas or lengths
-    corners: np.ndarray | None  # (dimension, n_pieces) cut edge of each piece corner
-    parent: np.ndarray | None  # (n_pieces,) cell of each piece
-    start: np.ndarray | None  # (n_cuts,) node below the plane: a mesh point, or an added centre
-    end: np.ndarray | None  # (n_cuts,) node above
-    weight: np.ndarray | None  # (n_cuts,) t, in [0, 1]
+    measures: tuple  # per plane (n_pieces,): piece areas or lengths
+    corners: tuple | None  # per plane (n_pieces, dimension): cut edge of each piece corner (numbered over all planes)
+    parent: tuple | None  # per plane (n_pieces,): cell of each piece
+    start: tuple | None  # per plane (n_cuts,): node below the plane, a mesh point or an added centre
+    end: tuple | None  # per plane (n_cuts,): node above
+    weight: tuple | None  # per plane (n_cuts,): t, in [0, 1]
     centres: tuple  # corner point ids (n, k) of the added centres that are nodes, in node order
 
     def cut_values(self, mesh: Mesh, values: np.ndarray) -> np.ndarray:
         """A point field (n_points,) at every cut edge (n_cuts,), linear along the edge."""
-        # numpy gathers much faster with intp indices than with the stored int32 ones
-        start = self.start.astype(np.intp, copy=False)
-        end = self.end.astype(np.intp, copy=False)
         if self.centres:  # the split's added centres are nodes: one table of point, then centre values
             table = np.concatenate([values] + [corner_mean(values, corners.astype(np.intp))
                                                for corners in self.centres], dtype=values.dtype)
         else:
             table = values
-        low = table[start]
-        out = table[end]
-        with np.errstate(invalid="ignore"):  # non-finite values: the pieces are left out later
-            out -= low
-            out *= self.weight
-            out += low  # low + t (high - low), as the split interpolates
+        out = np.empty(sum(part.size for part in self.start), dtype=table.dtype)
+        at = 0
+        for starts, ends, weights in zip(self.start, self.end, self.weight):  # plane by plane, in chunks:
+            for lo in range(0, starts.size, _CUT_CHUNK):  # the index copies and gathers stay small
+                part = slice(lo, lo + _CUT_CHUNK)
+                # numpy gathers much faster with intp indices than with the stored int32 ones
+                low = table[starts[part].astype(np.intp, copy=False)]
+                high = table[ends[part].astype(np.intp, copy=False)]
+                with np.errstate(invalid="ignore"):  # non-finite values: the pieces are left out later
+                    high -= low
+                    high *= weights[part]
+                    high += low  # low + t (high - low), as the split interpolates
+                out[at:at + high.size] = high
+                at += high.size
         return out
 
 
@@ -127,6 +135,7 @@ def _plane_pieces(mesh: Mesh, axis: int, position: float, lower_end: bool, cells
     crossed = (below > 0) & (below < dim + 1)
     others = [a for a in range(dim) if a != axis]
     rows = np.flatnonzero(crossed)
+    del crossed
     parent, below = parent[rows], below[rows]
     # each crossed simplex's corners in increasing s: the sorted s, and the corner slot each came
     # from (int8: little to write); the nodes are read through the slots below
@@ -135,11 +144,18 @@ def _plane_pieces(mesh: Mesh, axis: int, position: float, lower_end: bool, cells
     # order the cases list them (pieces of one case by simplex, case by case)
     row, i, j = _piece_edges(below, dim)
     first, second = row * k + i, row * k + j  # (n, dim) flat positions in the sorted corner arrays
+    del i, j, below
     s, slot = s.ravel(), slot.ravel()
     si = s[first]
     t = si / (si - s[second])
+    del si, s
     nodes, base = nodes.ravel(), rows[row] * k
+    parent = parent[row[:, 0]]  # each piece's cell
+    del row, rows
     start, end = nodes[base + slot[first]], nodes[base + slot[second]]
+    del nodes, base, slot, first, second
+    # the simplices go; the split's centres are still read below
+    split = replace(split, simplices=np.empty((0, k), dtype=np.int64), owner=np.empty(0, dtype=np.int64))
     X = []  # per in-plane axis, (n, dim): the corners, as the split interpolates them
     for a in others:
         column = columns.at(split, a)
@@ -151,7 +167,7 @@ def _plane_pieces(mesh: Mesh, axis: int, position: float, lower_end: bool, cells
         d1 = [x[:, 1] - x[:, 0] for x in X]
         d2 = [x[:, 2] - x[:, 0] for x in X]
         measures = 0.5 * np.abs(d1[0] * d2[1] - d1[1] * d2[0])
-    return measures, parent[row[:, 0]], start, end, t, centres
+    return measures, parent, start, end, t, centres
 
 
 def _renumbered(nodes: np.ndarray, n_points: int, first_added: int) -> np.ndarray:
@@ -291,110 +307,100 @@ def _build_sections(mesh: Mesh, axis: int, positions: np.ndarray, lower_ends: np
     """The section operator of ``positions`` along analysis axis ``axis`` (see :class:`_Sections`)."""
     lo, hi = cell_extent(mesh, axis, keep=False)  # the operator itself is kept
     dim = mesh.dimension
-    offsets, n_cuts, n_added = [0], 0, 0
+    n_cuts, n_added = 0, 0
     columns = _NodeColumns(mesh)
     measures, parents, corners, starts, ends, weights, centres = [], [], [], [], [], [], []
+    points, cell_fields = "point" in locations, "cell" in locations
     for position, lower_end in zip(positions, lower_ends):
         crossed = (lo <= position) & (hi > position) if lower_end else (lo < position) & (hi >= position)
         cells = np.nonzero(crossed)[0]
+        del crossed
         m, parent, start, end, t, plane_centres = (
             _layer_pieces(mesh, axis, float(position), bool(lower_end), cells, columns)
             or _plane_pieces(mesh, axis, float(position), bool(lower_end), cells, columns))
-        # each cut edge once: the pieces of a plane share them. Numbered in the order the
-        # pieces first use them, so the pieces read their corner values nearly in order
-        start, end, t = start.ravel(), end.ravel(), t.ravel()
-        span = max(int(start.max(initial=0)), int(end.max(initial=0))) + 1
-        # a stable argsort of the edge keys, by one packed sort (_sort_order: the same permutation)
-        order, key = _sort_order(start.astype(np.int64) * np.int64(span) + end, _bits(span * span))
-        distinct = np.ones(key.size, dtype=bool)
-        distinct[1:] = key[1:] != key[:-1]
-        first = order[distinct]  # where each cut edge is used first, in key order
-        by_use = _sort_order(first.astype(np.int64), _bits(key.size))[0]  # distinct: any sort orders alike
-        number = np.empty(first.size, dtype=np.int64)
-        number[by_use] = np.arange(first.size)
-        cut = np.empty(key.size, dtype=np.int64)
-        cut[order] = number[np.cumsum(distinct) - 1]
-        first = first[by_use]
+        del cells
+        cut, first = _cut_edges(start, end)
         # the centres numbered after those of earlier planes: a strictly increasing map of the
         # node ids, so the edge keys above sort and match alike before and after it
-        start = _renumbered(start[first], mesh.n_points, mesh.n_points + n_added)
-        end = _renumbered(end[first], mesh.n_points, mesh.n_points + n_added)
+        start = _renumbered(start.ravel()[first], mesh.n_points, mesh.n_points + n_added)
+        end = _renumbered(end.ravel()[first], mesh.n_points, mesh.n_points + n_added)
         n_added += sum(c.shape[0] for c in plane_centres)
-        # kept per plane in the narrowest type their values need so far (joined below in the
-        # final types): the planes' parts are what the building holds longest
-        nodes = index_dtype(mesh.n_points + n_added)
         measures.append(m)
-        parents.append(parent.astype(index_dtype(mesh.n_cells), copy=False))
-        # stored corner by corner, (dim, n), seen as (n, dim): strided reads here, contiguous
-        # copies when joined (a transposing copy of all the planes' corners there was slower)
+        if cell_fields:  # the pieces' cells serve cell fields only
+            parents.append(parent.astype(index_dtype(mesh.n_cells), copy=False))
+        del parent
+        # kept per plane (never joined: a join holds them twice), each in the narrowest type
+        # its values need so far; the corners stored corner by corner, (dim, n), seen as
+        # (n, dim): the sums read them a corner at a time
+        nodes = index_dtype(mesh.n_points + n_added)
         part = np.empty((dim, m.size), dtype=index_dtype(n_cuts + first.size))
         for a in range(dim):
             np.add(cut[a::dim], n_cuts, out=part[a], casting="unsafe")
         corners.append(part.T)
+        del cut
         starts.append(start.astype(nodes, copy=False))
         ends.append(end.astype(nodes, copy=False))
-        weights.append(t[first])
+        weights.append(t.ravel()[first])
+        del start, end, t  # the plane's full-size arrays go before the next plane is cut
         centres += plane_centres
-        offsets.append(offsets[-1] + m.size)
         n_cuts += first.size
-    node_type = index_dtype(mesh.n_points + n_added)
-
-    def joined(arrays, dtype, shape=(0,), transposed=False):
-        """The planes' arrays end to end in ``dtype`` (first axis; with ``transposed``, the last
-        axis of the transposed parts). The list is emptied as its parts are copied, so no more
-        than one plane's part is held twice (the first step's memory peak was here)."""
-        if not arrays:
-            return np.zeros(shape[::-1] if transposed else shape, dtype=dtype)
-        total, rest = sum(a.shape[0] for a in arrays), arrays[0].shape[1:]
-        out = np.empty(rest[::-1] + (total,) if transposed else (total,) + rest, dtype=dtype)
-        at = 0
-        while arrays:
-            part = arrays.pop(0)
-            rows = slice(at, at + part.shape[0])
-            if transposed:
-                out[..., rows] = part.T
-            else:
-                out[rows] = part
-            at = rows.stop
-        return out
-
-    measures = joined(measures, np.float64)
-    offsets = np.asarray(offsets, dtype=np.int64)
-    points = "point" in locations
-    start = joined(starts, node_type) if points else None
-    end = joined(ends, node_type) if points else None
     kept = ()
     if points and centres:
-        start, end, kept = _used_centres(mesh.n_points, start, end, centres)
+        starts, ends, kept = _used_centres(mesh.n_points, starts, ends, centres)
     return _Sections(
         locations=locations,
-        offsets=offsets,
-        areas=np.array([measures[a:b].sum() for a, b in zip(offsets[:-1], offsets[1:])]),
-        measures=measures,
-        corners=joined(corners, index_dtype(n_cuts), (0, dim), transposed=True) if points else None,
-        parent=joined(parents, index_dtype(mesh.n_cells)) if "cell" in locations else None,
-        start=start,
-        end=end,
-        weight=joined(weights, np.float64) if points else None,
+        areas=np.array([m.sum() for m in measures]),
+        measures=tuple(measures),
+        corners=tuple(corners) if points else None,
+        parent=tuple(parents) if cell_fields else None,
+        start=tuple(starts) if points else None,
+        end=tuple(ends) if points else None,
+        weight=tuple(weights) if points else None,
         centres=kept)
 
 
-def _used_centres(n_points: int, start: np.ndarray, end: np.ndarray, centres: list) -> tuple:
+def _cut_edges(start: np.ndarray, end: np.ndarray) -> tuple:
+    """Each cut edge of a plane once: the pieces of a plane share them.
+
+    ``start`` and ``end`` are the piece corners' nodes (n, dimension). Returns every piece
+    corner's cut edge (flat, numbered in the order the pieces first use them, so the pieces
+    read their corner values nearly in order) and, per cut edge, the flat position of the
+    corner that uses it first.
+    """
+    start, end = start.ravel(), end.ravel()
+    span = max(int(start.max(initial=0)), int(end.max(initial=0))) + 1
+    # a stable argsort of the edge keys, by one packed sort (_sort_order: the same permutation)
+    order, key = _sort_order(start.astype(np.int64) * np.int64(span) + end, _bits(span * span))
+    distinct = np.ones(key.size, dtype=bool)
+    distinct[1:] = key[1:] != key[:-1]
+    del key
+    first = order[distinct]  # where each cut edge is used first, in key order
+    by_use = _sort_order(first.astype(np.int64), _bits(distinct.size))[0]  # distinct: any sort orders alike
+    number = np.empty(first.size, dtype=np.int64)
+    number[by_use] = np.arange(first.size)
+    cut = np.empty(distinct.size, dtype=np.int64)
+    cut[order] = number[np.cumsum(distinct) - 1]
+    return cut, first[by_use]
+
+
+def _used_centres(n_points: int, start: list, end: list, centres: list) -> tuple:
     """The added centres that cut edges end at, numbered anew from ``n_points`` in node order.
 
-    Returns the cut edges' start and end nodes so renumbered, and the kept centres'
-    corners (narrowest integer type): a plane cuts only some of its cells' centres.
+    ``start`` and ``end`` are the planes' cut edge nodes. Returns them so renumbered (new
+    lists), and the kept centres' corners (narrowest integer type): a plane cuts only some of
+    its cells' centres.
     """
     used = np.zeros(sum(c.shape[0] for c in centres), dtype=bool)
-    for nodes in (start, end):
+    for nodes in start + end:
         used[nodes[nodes >= n_points].astype(np.intp) - n_points] = True
     number = np.cumsum(used) + (n_points - 1)  # the new id of each kept centre
-    renumbered = []
-    for nodes in (start, end):
-        nodes = nodes.copy()
-        extra = nodes >= n_points
-        nodes[extra] = number[nodes[extra].astype(np.intp) - n_points]
-        renumbered.append(nodes)
+    renumbered = ([], [])
+    for parts, out in zip((start, end), renumbered):
+        for nodes in parts:
+            nodes = nodes.copy()
+            extra = nodes >= n_points
+            nodes[extra] = number[nodes[extra].astype(np.intp) - n_points]
+            out.append(nodes)
     kept, at = [], 0
     dtype = index_dtype(n_points)
     for corners in centres:

@@ -173,12 +173,33 @@ def split_face_topology(mesh: Mesh, neighbours: np.ndarray) -> dict:
             "count": n_pairs + int(lone.size), "crowded": 0, "shared_faces": n_pairs}
 
 
+#: ``mesh.memo`` key of a face neighbour table built from the face pairs (:func:`pairs_as_neighbours`)
+FACE_NEIGHBOURS = "face_neighbours"
+
+
+def pairs_as_neighbours(mesh: Mesh, neighbours: np.ndarray) -> None:
+    """Let the face topology drop its pairs once ``neighbours`` holds them (a table built from them).
+
+    ``neighbours`` (n_cells, m): each row the cell's neighbours of higher number first, then
+    the lower, each increasing, -1 padded at the end, from :attr:`Mesh.face_pairs` (every pair
+    once in each of its rows). :func:`face_pairs` reads the same sorted pairs back from it, so
+    a mesh keeps one of the two (the pairs are read once, to build the table).
+    """
+    topology = mesh._face_topology
+    if topology["pairs"] is not None and mesh.memo(SPLIT_FACES, lambda: None, keep=False) is None:
+        mesh.memo(FACE_NEIGHBOURS, lambda: neighbours)
+        topology["pairs"] = None
+
+
 def face_pairs(mesh: Mesh) -> np.ndarray:
-    """:attr:`Mesh.face_pairs`: the face topology's pairs, or read from a split's face neighbours."""
+    """:attr:`Mesh.face_pairs`: the face topology's pairs, or read from a split's face neighbours (or
+    from a neighbour table built from the pairs, :func:`pairs_as_neighbours`)."""
     pairs = mesh._face_topology["pairs"]
     if pairs is not None:
         return pairs
     neighbours = mesh.memo(SPLIT_FACES, lambda: None, keep=False)
+    if neighbours is None:
+        neighbours = mesh.memo(FACE_NEIGHBOURS, lambda: None, keep=False)
     n = mesh.n_cells
     higher = neighbours > np.arange(n, dtype=neighbours.dtype)[:, None]
     first = np.repeat(np.arange(n, dtype=np.int32 if n < 2 ** 24 else np.int64), higher.sum(axis=1))

@@ -48,16 +48,36 @@ def weighted_quantile(values, weights, q, *, method: str = "midpoint"):
     if v.size == 0:
         return tuple(float("nan") for _ in q) if several else float("nan")
     order = np.argsort(v)
-    v, w = v[order], w[order]
+    w = w[order]  # the values themselves are read only where a quantile falls (at most two each)
     if method == "inverted_cdf":
         cumulative = np.cumsum(w)
 
         def one(p):
-            return float(v[min(int(np.searchsorted(cumulative, p * cumulative[-1])), v.size - 1)])
+            return float(v[order[min(int(np.searchsorted(cumulative, p * cumulative[-1])), v.size - 1)]])
     else:
         middle = np.cumsum(w) - 0.5 * w
         total = w.sum()
+        # np.interp's bracket in a non-decreasing table is the last middle <= the target (a
+        # searchsorted); NaN or a table out of order (overflowing weights) takes np.interp itself
+        ordered = bool(middle.size < 2 or (middle[1:] >= middle[:-1]).all())
 
         def one(p):
-            return float(np.interp(p * total, middle, v))
+            return _interpolated(float(p * total), middle, v, order, ordered)
     return tuple(one(p) for p in q) if several else one(q)
+
+
+def _interpolated(target, middle, v, order, ordered):
+    """``np.interp(target, middle, v[order])``, gathering the values it reads only (the same float).
+
+    In a non-decreasing table np.interp takes ``v[order][0]`` below the first point, the last
+    value from the last point on, and otherwise interpolates between the points ``j, j + 1`` with
+    ``middle[j] <= target < middle[j + 1]``: the same arithmetic as on those two points alone.
+    """
+    if not ordered or target != target:
+        return float(np.interp(target, middle, v[order]))
+    j = int(np.searchsorted(middle, target, side="right")) - 1
+    if j < 0:
+        return float(v[order[0]])
+    if j >= middle.size - 1:
+        return float(v[order[-1]])
+    return float(np.interp(target, middle[j:j + 2], v[order[j:j + 2]]))

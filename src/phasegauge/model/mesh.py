@@ -179,7 +179,9 @@ class Mesh:
         if pieces is not None and any(pieces[i] is not None for i in self.kept_blocks):
             parts, top = [], 0
             for i, block in zip(self.kept_blocks, self.blocks):
-                own = np.arange(len(block)) if pieces[i] is None else np.asarray(pieces[i], dtype=np.int64)
+                own = np.arange(len(block)) if pieces[i] is None else np.asarray(pieces[i])
+                if own.dtype.kind not in "iu" or len(self.blocks) > 1:  # one block: the reader's type (int32)
+                    own = own.astype(np.int64, copy=False)
                 parts.append(own + top if top else own)
                 top += int(own.max()) + 1 if own.size else 0
             self.cell_parents = np.concatenate(parts) if len(parts) > 1 else parts[0]  # one block: the reader's
@@ -523,9 +525,14 @@ class Mesh:
             a = self.incidence
             total = a @ np.where(finite, flat, 0.0)
             count = a @ finite.astype(np.float64)
+        # in place (the sums are this call's own arrays): no more mesh-wide temporaries than the two
+        valid = count > 0
+        np.maximum(count, 1, out=count)
         with np.errstate(invalid="ignore", divide="ignore"):
-            out = np.where(count > 0, total / np.maximum(count, 1), np.nan)
-        return out.reshape((self.n_cells,) + v.shape[1:])
+            np.divide(total, count, out=total)
+        del count
+        total[~valid] = np.nan
+        return total.reshape((self.n_cells,) + v.shape[1:])
 
     @cached_property
     def _corner_sums_direct(self) -> bool:

@@ -58,9 +58,9 @@ class PolyhedraSplit:
     tetra : ndarray of shape (m, 4), int64
         Corner point ids of each tetrahedron, positively oriented (VTK order); ids from
         ``n_points`` on are added centres.
-    source : ndarray of shape (m,), int64
+    source : ndarray of shape (m,), int32 (int64 beyond 2**31 - 1 cells)
         The input cell each tetrahedron belongs to (in increasing order).
-    centre_points : ndarray of shape (q,), int64
+    centre_points : ndarray of shape (q,), int32 (int64 beyond 2**31 - 1 points)
         The corners of every added centre, one centre after another.
     centre_offsets : ndarray of shape (n_centres + 1,), int64
         Where each centre's corners start in ``centre_points``.
@@ -311,7 +311,7 @@ def split_polyhedra(points: np.ndarray, face_points, face_offsets, face_cell, n_
         centre_counts.append(np.bincount(edge_cell[distinct], minlength=n_cells))
         del distinct
     del edge_cell
-    centre_points = np.concatenate(centre_parts).astype(np.int64, copy=False)
+    centre_points = np.concatenate(centre_parts).astype(index_dtype(n_points), copy=False)  # kept with the split
     del centre_parts
     centre_offsets = np.concatenate([[0], np.cumsum(np.concatenate(centre_counts))]).astype(np.int64)
     cell_centre = n_points + n_face_centres + np.arange(n_cells, dtype=np.int64)
@@ -322,7 +322,7 @@ def split_polyhedra(points: np.ndarray, face_points, face_offsets, face_cell, n_
     centred = sizes >= 4
     corner = np.flatnonzero(np.repeat(centred, sizes))  # stream positions of the centred faces' corners
     tetra = np.empty((triangles.size + corner.size, 4), dtype=np.int64)
-    source = np.empty(tetra.shape[0], dtype=np.int64)
+    source = np.empty(tetra.shape[0], dtype=index_dtype(n_cells))  # int32 where it fits: 4 bytes a tetrahedron
     if triangles.size:
         p = face_offsets[triangles]
         part = tetra[:triangles.size]

@@ -67,21 +67,36 @@ def legend_outside(ax, **options):
 
 
 def sparse_ticks(figure, *, bins: int = 5) -> None:
-    """At most about ``bins`` + 1 labelled ticks on every linear axis that has matplotlib's automatic ticks.
+    """At most about ``bins`` + 1 labelled ticks on every linear axis that has matplotlib's automatic ticks, fixed.
 
     matplotlib fits as many ticks as the axis length allows (eight or nine on the report's time
     axes); each is a set of lines and a label to build and draw, the largest cost of a plain plot.
-    Five intervals at the same round steps (1, 2, 2.5, 5, 10) read as well. Axes with ticks of
-    their own (logarithmic, integer, fixed) and 3D axes keep them.
+    Five intervals at the same round steps (1, 2, 2.5, 5, 10) read as well. The locations are
+    chosen once, from the axis's final limits, and only those inside the limits are kept (a
+    :class:`~matplotlib.ticker.FixedLocator`): the automatic locator also returns one location
+    beyond each end, for which matplotlib builds a tick it never draws. An axis asked for whole
+    numbers (``integer=True``) keeps whole-number ticks. Axes with ticks of their own
+    (logarithmic, fixed, categories) and 3D axes keep them. Call it when the figure's data and
+    limits are final (as :func:`._files.atomic_save_figure` does).
     """
-    from matplotlib.ticker import AutoLocator, MaxNLocator
+    import numpy as np
+    from matplotlib.ticker import AutoLocator, FixedLocator
 
     for ax in figure.axes:
         if ax.name != "rectilinear":
             continue
         for axis in (ax.xaxis, ax.yaxis):
-            if type(axis.get_major_locator()) is AutoLocator:
-                axis.set_major_locator(MaxNLocator(nbins=bins, steps=[1, 2, 2.5, 5, 10]))
+            locator = axis.get_major_locator()  # shared axes share it: the first sets both
+            if type(locator) is not AutoLocator:
+                continue
+            low, high = sorted(float(v) for v in axis.get_view_interval())
+            span = high - low
+            if not (np.isfinite(span) and span > 0):
+                continue
+            locator.set_params(nbins=bins, steps=[1, 2, 2.5, 5, 10])
+            locations = np.asarray(locator.tick_values(low, high), dtype=float)
+            inside = locations[(locations >= low - 1e-9 * span) & (locations <= high + 1e-9 * span)]
+            axis.set_major_locator(FixedLocator(inside))
 
 
 #: room around the figure's edge and between rows, in inches (constrained layout's default padding)
@@ -131,10 +146,15 @@ def lay_out_column(figure, dpi: float) -> bool:
         return False
     left = right = 0.0
     tops, bottoms = [], []
+    from matplotlib.spines import Spine
+
     for span in sorted(rows):
         top = bottom = 0.0
         for ax in rows[span]:
-            tight = ax.get_tightbbox(renderer)
+            # the spines lie on the axes' edge (their ticks inside the tick labels' reach): measuring
+            # each (with its ticks) only adds half a line width, well within the padding
+            extra = [artist for artist in ax.get_default_bbox_extra_artists() if not isinstance(artist, Spine)]
+            tight = ax.get_tightbbox(renderer, bbox_extra_artists=extra)
             box = ax.get_position().transformed(figure.transFigure)
             left, right = max(left, box.x0 - tight.x0), max(right, tight.x1 - box.x1)
             top, bottom = max(top, tight.y1 - box.y1), max(bottom, box.y0 - tight.y0)

@@ -8,6 +8,8 @@ import time
 
 import numpy as np
 
+from . import _plots
+from ._drawing import save_figure_makers
 from ._files import RUN_MARKER, atomic_save_figure, atomic_write_csv, atomic_write_json, atomic_write_text
 from ._html import Page
 
@@ -40,8 +42,6 @@ def manifest(command: str, *, version: str, inputs: list, fields: dict, outputs:
 
 def measure_figures(result, snapshots: dict | None = None) -> list:
     """The report's plots as (file stem, caption, Figure); empty plots are left out."""
-    from . import _plots
-
     return _plots.measure_figures(result, snapshots)
 
 
@@ -101,7 +101,7 @@ def write_measure_report(out, result, *, series: dict, inputs: list, snapshots: 
         written.append("diffusion_audit.json")
     execution = dict(execution)
     plot_format = execution.pop("plot_format", "png")
-    pngs = save_figures(out, measure_figures(result, snapshots), written, plot_format)
+    pngs = save_figure_makers(out, _plots.measure_figure_makers(result, snapshots), written, plot_format)
     has_contours = os.path.isdir(os.path.join(out, "contours"))
     page = _page(result, series, pngs, execution, version, written=list(written), contours=has_contours)
     atomic_write_text(os.path.join(out, "report.html"), page.render())

@@ -6,9 +6,11 @@ Each analysis owns its plot functions (``_plots_interface``, ``_plots_droplets``
 
 from __future__ import annotations
 
+import functools
+
 import numpy as np
 
-__all__ = ["measure_figures", "import_drawing"]
+__all__ = ["measure_figures", "measure_figure_makers", "import_drawing"]
 
 
 def _has(frame, column) -> bool:
@@ -22,32 +24,41 @@ def measure_figures(result, snapshots: dict | None = None) -> list:
     ``result`` is the run's tables (a MeasureResult); ``snapshots`` the interface arrays of chosen
     steps (:func:`phasegauge.run._report_data.interface_snapshots`), or None.
     """
+    return [(stem, caption, make()) for stem, caption, make in measure_figure_makers(result, snapshots)]
+
+
+def measure_figure_makers(result, snapshots: dict | None = None) -> list:
+    """(file stem, caption, maker) for every plot that has data; ``maker()`` draws the Figure.
+
+    Nothing is drawn (nor matplotlib imported) until a maker is called, so the figures can be made
+    in any order and in any process that has the result. Arguments as :func:`measure_figures`.
+    """
     steps = result.steps
     figures = []
     if _has(steps, "phase_volume_drift") and len(steps) > 1:
         figures.append(("phase_volume_drift", "Phase-volume drift relative to the first step",
-                        _drawer("_plots_mixing").plot_phase_volume_drift(steps)))
+                        _maker("_plots_mixing", "plot_phase_volume_drift", steps)))
     if _has(steps, "interface_width") and len(steps) > 1:
         figures.append(("interface_width", "Interface width (5-95 %) in mesh units and in cells",
-                        _drawer("_plots_interface").plot_interface_width(steps)))
+                        _maker("_plots_interface", "plot_interface_width", steps)))
     if _has(steps, "coarsening_length") and len(steps) > 1:
         fit = next((f.figures for f in getattr(result, "findings", []) if f.kind == "coarsening"), None)
         figures.append(("coarsening", "Characteristic length (structure factor) over time, log-log",
-                        _drawer("_plots_interface").plot_coarsening(steps, fit)))
+                        _maker("_plots_interface", "plot_coarsening", steps, fit)))
     if snapshots:
         figures.append(("interface_snapshots", "Interface (c = level) at chosen steps",
-                        _drawer("_plots_interface").plot_interface_snapshots(
-                            snapshots["steps"], bounds=snapshots["bounds"], axis_names=snapshots["axis_names"],
-                            times=snapshots["times"])))
+                        _maker("_plots_interface", "plot_interface_snapshots", snapshots["steps"],
+                               bounds=snapshots["bounds"], axis_names=snapshots["axis_names"],
+                               times=snapshots["times"])))
     if "droplet_count" in steps and len(steps) > 1:
         figures.append(("droplet_count", "Droplet count over time with breakup and coalescence events",
-                        _drawer("_plots_droplets").plot_droplet_count(steps, result.events)))
+                        _maker("_plots_droplets", "plot_droplet_count", steps, result.events)))
     if result.droplets is not None and len(result.droplets) and len(steps) > 1:
         figures.append(("droplet_sizes", "Droplet equivalent diameters over time",
-                        _drawer("_plots_droplets").plot_size_distribution(result.droplets)))
+                        _maker("_plots_droplets", "plot_size_distribution", result.droplets)))
     if _has(steps, "mixing_index") and len(steps) > 1:
         figures.append(("mixing_index", "Volume-weighted mixing index over time",
-                        _drawer("_plots_mixing").plot_mixing_index(steps)))
+                        _maker("_plots_mixing", "plot_mixing_index", steps)))
     profiles = result.profiles
     if profiles is not None and len(profiles):
         by_step = {f"t = {t:g}": frame.drop(columns=["step", "time"])
@@ -58,9 +69,9 @@ def measure_figures(result, snapshots: dict | None = None) -> list:
             by_step = {keys[i]: by_step[keys[i]] for i in pick}
         weighting = "flow" if _has(profiles, "mixing_index_flow") else "area"
         figures.append(("mixing_profile", "Mixing index along the channel (cross sections)",
-                        _drawer("_plots_mixing").plot_mixing_profile(by_step, weighting=weighting,
-                                                                     target=result.options.mixing_target,
-                                                                     axis_label=_position_label(result.options))))
+                        _maker("_plots_mixing", "plot_mixing_profile", by_step, weighting=weighting,
+                               target=result.options.mixing_target,
+                               axis_label=_position_label(result.options))))
     figures += _probe_figures(result)
     figures += _mixture_figures(result)
     return figures
@@ -74,12 +85,12 @@ def _position_label(options) -> str:
     return in_mesh_units(f"position along {axis}" if axis else "position along the axis")
 
 
-#: the plot modules a measure report usually draws with (matplotlib, its Agg canvas and Pillow come with them)
+#: the plot modules a measure report usually draws with (matplotlib and its Agg canvas come with them)
 _USUAL_DRAWERS = ("_canvas", "_plots_interface", "_plots_surface", "_plots_droplets", "_plots_mixing")
 
 
 def import_drawing() -> None:
-    """Import matplotlib, its Agg canvas, Pillow and the usual plot modules, without drawing anything.
+    """Import matplotlib, its Agg canvas and the usual plot modules, without drawing anything.
 
     A run calls this on a background thread while its steps are measured, so the report does not
     wait for the import (about 0.4 s) after the last step.
@@ -88,17 +99,21 @@ def import_drawing() -> None:
 
     import_module("matplotlib.backends.backend_agg")
     import_module("matplotlib.figure")
-    import_module("PIL.Image")
     for module in _USUAL_DRAWERS:
         import_module(f".{module}", __package__)
 
 
-def _drawer(module: str):
-    """The plot module ``module`` of this package, imported when a figure of it is drawn (matplotlib
-    with it: a run without plots never imports matplotlib)."""
+def _maker(module: str, function: str, *args, **kwargs):
+    """A maker of one figure: calls ``function`` of the plot module ``module`` of this package with the
+    arguments, importing the module (and matplotlib with it) only then: a run without plots never
+    imports matplotlib."""
+    return functools.partial(_make, module, function, args, kwargs)
+
+
+def _make(module: str, function: str, args: tuple, kwargs: dict):
     from importlib import import_module
 
-    return import_module(f".{module}", __package__)
+    return getattr(import_module(f".{module}", __package__), function)(*args, **kwargs)
 
 
 def _mixture_figures(result) -> list:
@@ -108,14 +123,14 @@ def _mixture_figures(result) -> list:
     if diagram is None or "mean_composition" not in steps:
         return figures
     figures.append(("phase_compositions", "Measured bulk compositions over the phase diagram, step by step",
-                    _drawer("_plots_mixture").plot_compositions_on_diagram(steps, diagram)))
+                    _maker("_plots_mixture", "plot_compositions_on_diagram", steps, diagram)))
     if _has(steps, "equilibrium_gap"):
         figures.append(("equilibrium_gap", "Gap between the bulk compositions and the binodal over time",
-                        _drawer("_plots_mixture").plot_equilibrium_gap(
-                            steps, tolerance=result.options.equilibrium_tolerance)))
+                        _maker("_plots_mixture", "plot_equilibrium_gap", steps,
+                               tolerance=result.options.equilibrium_tolerance)))
     if _has(steps, "extraction_progress"):
         figures.append(("solute_distribution", "Solute in each phase, partition coefficient and extraction progress",
-                        _drawer("_plots_mixture").plot_solute(steps)))
+                        _maker("_plots_mixture", "plot_solute", steps)))
     return figures
 
 
@@ -126,12 +141,12 @@ def _probe_figures(result) -> list:
     validation = getattr(result, "validation", None)
     if probes is not None and len(probes):
         figures.append(("probe_histories", "Field at each probe over time",
-                        _drawer("_plots_probes").plot_probe_histories(probes)))
+                        _maker("_plots_probes", "plot_probe_histories", probes)))
     if lines is not None and len(lines):
         figures.append(("line_profiles", "Field along each line at chosen steps",
-                        _drawer("_plots_probes").plot_line_profiles(lines)))
+                        _maker("_plots_probes", "plot_line_profiles", lines)))
     if validation is not None and len(validation):
         figures.append(("validation_overlay", "Simulated against measured values",
-                        _drawer("_plots_probes").plot_validation_overlay(
-                            validation, getattr(result, "validation_summary", None))))
+                        _maker("_plots_probes", "plot_validation_overlay", validation,
+                               getattr(result, "validation_summary", None))))
     return figures

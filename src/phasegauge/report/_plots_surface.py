@@ -104,8 +104,10 @@ def draw_surface_in_box(ax, points, elements, *, bounds, axis_names=("x", "y", "
     screen_corners = project(corners, bounds=(lo, hi), basis=basis)
     # the box: its twelve edges (corner k and corner k with one axis flipped), behind the surface
     edges = [(k, k | (1 << j)) for k in range(8) for j in range(3) if not (k >> j) & 1]
+    # autolim=False: the limits are set from the box and the labels below; matplotlib would otherwise
+    # measure the extent of every triangle's path for nothing
     ax.add_collection(LineCollection(screen_corners[np.array(edges)][:, :, :2], colors="0.75", linewidths=0.6,
-                                     zorder=1))
+                                     zorder=1), autolim=False)
     points, elements = np.asarray(points, dtype=float), np.asarray(elements, dtype=np.int64)
     if len(elements):
         screen = project(points, bounds=(lo, hi), basis=basis)
@@ -118,7 +120,7 @@ def draw_surface_in_box(ax, points, elements, *, bounds, axis_names=("x", "y", "
         light = np.abs(normal[order] @ _LIGHT)
         shade = (0.45 + 0.55 * light)[:, None] * np.asarray(to_rgb(colour))[None, :]
         ax.add_collection(PolyCollection(corner[order][:, :, :2], facecolors=np.clip(shade, 0, 1),
-                                         edgecolors="none", antialiaseds=False, zorder=2))
+                                         edgecolors="none", antialiaseds=False, zorder=2), autolim=False)
     centre = screen_corners[:, :2].mean(axis=0)
     size = np.ptp(screen_corners[:, :2], axis=0).max()
     # the labelled edges: x along the front bottom edge, y along the right bottom edge (as matplotlib's

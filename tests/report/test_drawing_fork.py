@@ -1,0 +1,195 @@
+"""The report's drawing fork (``report/_drawing.py``): the same files as one process, no process left
+behind, errors raised here with the figure's name, and one process where ``os.fork`` is missing."""
+
+import os
+
+import numpy as np
+import pytest
+from PIL import Image
+
+from phasegauge.errors import AnalysisError, OptionError
+from phasegauge.report import _drawing
+from phasegauge.report._canvas import new_figure
+from phasegauge.report._drawing import fork_helps, save_figure_makers
+
+needs_fork = pytest.mark.skipif(not hasattr(os, "fork"), reason="this system has no os.fork")
+
+
+def _plot(k):
+    def make():
+        fig = new_figure(3.0, 2.0)
+        ax = fig.add_subplot()
+        ax.plot([0, 1, 2], [k, k + 2, k + 1], "-o")
+        ax.set_xlabel("time (run's time units)")
+        ax.set_ylabel("value")
+        return fig
+    return make
+
+
+def _makers(count=5):
+    return [(f"plot_{k}", f"plot {k}", _plot(k)) for k in range(count)]
+
+
+def _no_child_left(pids):
+    for pid in pids:
+        with pytest.raises(ChildProcessError):  # reaped: no zombie
+            os.waitpid(pid, os.WNOHANG)
+
+
+@pytest.fixture
+def forks(monkeypatch):
+    """The pids of the forks the drawing makes."""
+    pids, fork = [], os.fork
+
+    def recorded():
+        pid = fork()
+        if pid:
+            pids.append(pid)
+        return pid
+
+    monkeypatch.setattr(os, "fork", recorded)
+    return pids
+
+
+@needs_fork
+def test_a_fork_writes_the_same_files_as_one_process(tmp_path, forks):
+    one, two = tmp_path / "one", tmp_path / "two"
+    one.mkdir()
+    two.mkdir()
+    written_one, written_two = [], []
+    alone = save_figure_makers(str(one), _makers(), written_one, fork=False)
+    assert not forks
+    split = save_figure_makers(str(two), _makers(), written_two, fork=True)
+    assert len(forks) == 1
+    _no_child_left(forks)
+    assert written_one == written_two == [f"plot_{k}.png" for k in range(5)]
+    assert [caption for caption, _ in split] == [f"plot {k}" for k in range(5)]
+    for (_, a), (_, b), name in zip(alone, split, written_one):
+        assert a == b == (two / name).read_bytes() == (one / name).read_bytes()
+        # Pillow decodes every file (the fork's and this process's) to an image of the figure's size
+        assert Image.open(two / name).size == (330, 220)  # 3 x 2 inches at 110 dpi
+
+
+@needs_fork
+def test_an_error_in_the_forks_figure_is_raised_here_with_its_name(tmp_path, forks):
+    makers = _makers()
+
+    def broken():
+        raise OptionError("no column 'droplet_count' in the table", fix="pass the steps table")
+
+    share = _drawing._their_share(makers)
+    makers[share[0]] = ("droplet_count", "count", broken)
+    with pytest.raises(OptionError, match="no column 'droplet_count'") as caught:
+        save_figure_makers(str(tmp_path), makers, [], fork=True)
+    if hasattr(caught.value, "add_note"):
+        assert any("'droplet_count'" in note for note in caught.value.__notes__)
+    _no_child_left(forks)
+
+
+@needs_fork
+def test_an_error_that_does_not_pickle_comes_back_as_an_analysis_error(tmp_path, forks):
+    makers = _makers()
+
+    class Unpicklable(Exception):
+        def __reduce__(self):
+            raise TypeError("not this one")
+
+    def broken():
+        raise Unpicklable("lost")
+
+    makers[_drawing._their_share(makers)[0]] = ("mixing_index", "mixing", broken)
+    with pytest.raises(AnalysisError, match="figure 'mixing_index'.*Unpicklable: lost"):
+        save_figure_makers(str(tmp_path), makers, [], fork=True)
+    _no_child_left(forks)
+
+
+@needs_fork
+def test_an_error_here_stops_the_fork(tmp_path, forks):
+    makers = _makers()
+    mine = [i for i in range(len(makers)) if i not in _drawing._their_share(makers)]
+
+    def broken():
+        raise OptionError("bad table")
+
+    makers[mine[0]] = ("steps", "steps", broken)
+    with pytest.raises(OptionError, match="bad table"):
+        save_figure_makers(str(tmp_path), makers, [], fork=True)
+    _no_child_left(forks)
+
+
+@needs_fork
+def test_figures_of_a_fork_that_dies_are_drawn_here(tmp_path, forks):
+    parent = os.getpid()
+    makers = _makers()
+    index = _drawing._their_share(makers)[0]
+    draw = makers[index][2]
+
+    def dies_in_the_fork():
+        if os.getpid() != parent:
+            os._exit(9)  # as if killed
+        return draw()
+
+    makers[index] = (makers[index][0], makers[index][1], dies_in_the_fork)
+    pngs = save_figure_makers(str(tmp_path), makers, [], fork=True)
+    _no_child_left(forks)
+    assert all(png.startswith(b"\x89PNG") for _, png in pngs)
+    assert sorted(os.listdir(tmp_path)) == sorted(f"{stem}.png" for stem, _, _ in makers)
+
+
+def test_without_os_fork_everything_is_drawn_in_one_process(tmp_path, monkeypatch):
+    monkeypatch.delattr(os, "fork", raising=False)
+    assert not fork_helps(7)
+    written = []
+    pngs = save_figure_makers(str(tmp_path), _makers(3), written, fork=True)
+    assert written == ["plot_0.png", "plot_1.png", "plot_2.png"]
+    assert all((tmp_path / name).read_bytes() == png for name, (_, png) in zip(written, pngs))
+
+
+def test_the_fork_is_used_only_where_it_can_help(monkeypatch):
+    import threading
+
+    monkeypatch.setattr(_drawing, "_busy_cores", lambda: 0.2)
+    monkeypatch.setattr(os, "sched_getaffinity", lambda pid: {0, 1}, raising=False)
+    monkeypatch.setattr(os, "fork", lambda: None, raising=False)
+    assert fork_helps(7) == (threading.active_count() == 1)
+    assert not fork_helps(2)  # too few figures to share
+    monkeypatch.setattr(_drawing, "_busy_cores", lambda: 1.5)
+    assert not fork_helps(7)  # the second core is busy
+    monkeypatch.setattr(_drawing, "_busy_cores", lambda: 0.2)
+    monkeypatch.setattr(os, "sched_getaffinity", lambda pid: {0})
+    assert not fork_helps(7)  # one core
+    stop = threading.Event()
+    other = threading.Thread(target=stop.wait)
+    other.start()
+    try:
+        monkeypatch.setattr(os, "sched_getaffinity", lambda pid: {0, 1})
+        assert not fork_helps(7)  # another thread runs: no fork
+    finally:
+        stop.set()
+        other.join()
+
+
+def test_the_fork_takes_about_half_the_weight():
+    makers = [(stem, stem, None) for stem in ("phase_volume_drift", "interface_width", "interface_snapshots",
+                                              "droplet_count", "droplet_sizes", "mixing_index", "mixing_profile")]
+    theirs = _drawing._their_share(makers)
+    weight = [_drawing._WEIGHTS.get(stem, 1.0) for stem, _, _ in makers]
+    share = sum(weight[i] for i in theirs) / sum(weight)
+    assert 0.4 <= share <= 0.6 and 0 < len(theirs) < len(makers)
+    assert np.all(np.diff(theirs) > 0)
+
+
+def test_busy_cores_counts_other_work(monkeypatch):
+    busy = _drawing._busy_cores()
+    assert 0.0 <= busy < 10_000
+    if os.path.exists("/proc/loadavg"):  # Linux: the runnable threads now, this one left out
+        with open("/proc/loadavg", encoding="ascii") as handle:
+            total = int(handle.read().split()[4 - 1].partition("/")[2])
+        assert busy <= total
+    monkeypatch.setattr("builtins.open", _no_file)
+    monkeypatch.setattr(os, "getloadavg", lambda: (1.25, 1.0, 1.0), raising=False)
+    assert _drawing._busy_cores() == 1.25  # elsewhere: the last minute's load average
+
+
+def _no_file(*args, **kwargs):
+    raise OSError("no /proc here")
