@@ -328,3 +328,41 @@ def _running(pid: int) -> bool:
             return handle.read().rpartition(")")[2].split()[0] not in ("Z", "X")
     except (FileNotFoundError, ProcessLookupError):
         return False
+
+
+@needs_fork
+def test_a_fork_stopped_while_writing_leaves_no_temporary_file(tmp_path, forks):
+    """An error here stops the fork (SIGKILL: its atomic write cannot clean up); the temporary file
+    it was writing is removed (the ``.tmp-<hex><name>.part`` files of ``_files.atomic_write_bytes``)."""
+    import time
+
+    from phasegauge.report._files import TEMP_PREFIX
+
+    parent = os.getpid()
+    makers = _makers()
+    theirs = _drawing._their_share(makers)
+    index, mine = theirs[0], [i for i in range(len(makers)) if i not in theirs][0]
+    temporary = tmp_path / f"{TEMP_PREFIX}0123456789ab{makers[index][0]}.png.part"
+    other = tmp_path / f"{TEMP_PREFIX}0123456789abmine.png.part"  # not the fork's: kept
+    other.write_bytes(b"")
+
+    def writing_in_the_fork():
+        if os.getpid() != parent:  # the fork: half way through writing its file, when it is stopped
+            temporary.write_bytes(b"\x89PNG")
+            time.sleep(300)
+        raise AssertionError("drawn here")
+
+    def broken_once_the_fork_writes():
+        while not temporary.exists():
+            time.sleep(0.01)
+        raise OptionError("bad table")
+
+    makers[index] = (makers[index][0], makers[index][1], writing_in_the_fork)
+    makers[mine] = ("steps", "steps", broken_once_the_fork_writes)
+    try:
+        with pytest.raises(OptionError, match="bad table"):
+            save_figure_makers(str(tmp_path), makers, [], fork=True)
+        _no_child_left(forks)
+    finally:
+        _end(forks)
+    assert not temporary.exists() and other.exists()

@@ -20,7 +20,7 @@ import pickle
 from types import MappingProxyType
 
 from ..errors import AnalysisError, short_text
-from ._files import atomic_save_figure
+from ._files import TEMP_PREFIX, atomic_save_figure
 
 __all__ = ["save_figure_makers", "fork_helps"]
 
@@ -193,6 +193,7 @@ def _draw_split(out: str, makers, theirs: list, plot_format: str, pngs: list) ->
             pass
         if freeze:
             gc.unfreeze()
+        _remove_temporaries(out, [f"{makers[i][0]}.{plot_format}" for i in theirs if i not in (received or {})])
     for index, (kind, value) in (received or {}).items():
         if kind == "error":
             raise _raised(value, makers[index][0])
@@ -217,6 +218,24 @@ def _draw_all(out: str, makers, indices: list, plot_format: str) -> dict:
             done[index] = ("error", record)
             break
     return done
+
+
+def _remove_temporaries(out: str, names: list) -> None:
+    """Remove the temporary files of ``names`` that a fork stopped (or dead) while writing them left in ``out``."""
+    if not names:
+        return
+    import re
+
+    pattern = re.compile(f"{re.escape(TEMP_PREFIX)}[0-9a-f]{{12}}({'|'.join(map(re.escape, names))})\\.part")
+    try:
+        found = [name for name in os.listdir(out) if pattern.fullmatch(name)]
+    except OSError:
+        return
+    for name in found:
+        try:
+            os.remove(os.path.join(out, name))
+        except OSError:
+            pass
 
 
 def _send(fd: int, done: dict) -> None:
