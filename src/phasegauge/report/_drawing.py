@@ -145,9 +145,9 @@ def _draw_split(out: str, makers, theirs: list, plot_format: str, pngs: list) ->
         import_module(module)                                                # none of matplotlib again
     import gc
 
+    held = _signal_mask()
     # the objects made so far leave the collector's view while the fork lives: a collection would
     # write to every one of them, and each page written is copied (in the fork, and here while it runs)
-    held = _signal_mask()
     freeze = gc.get_freeze_count() == 0  # (a program that froze objects itself keeps them so)
     if freeze:
         gc.freeze()
@@ -177,8 +177,8 @@ def _draw_split(out: str, makers, theirs: list, plot_format: str, pngs: list) ->
             os._exit(status)
     received = None
     try:
-        _set_signal_mask(held)  # an interrupt from here on stops the fork (below)
         os.close(write_end)
+        _set_signal_mask(held)  # an interrupt from here on stops the fork (below)
         for index in range(len(makers)):
             if index not in theirs:
                 pngs[index] = _draw(out, makers[index], plot_format)
