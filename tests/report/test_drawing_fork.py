@@ -193,3 +193,176 @@ def test_busy_cores_counts_other_work(monkeypatch):
 
 def _no_file(*args, **kwargs):
     raise OSError("no /proc here")
+
+
+def _end(pids):
+    """Kill and reap whatever of ``pids`` is left (a failed test leaves no process behind)."""
+    import signal
+
+    for pid in pids:
+        try:
+            os.kill(pid, signal.SIGKILL)
+            os.waitpid(pid, 0)
+        except (ProcessLookupError, ChildProcessError):
+            pass
+
+
+@needs_fork
+@pytest.mark.skipif(not hasattr(__import__("signal"), "pthread_sigmask"), reason="no pthread_sigmask")
+def test_an_interrupt_as_the_fork_is_made_leaves_no_process_behind(tmp_path, monkeypatch):
+    """Ctrl-C (SIGINT) arriving just as ``os.fork`` returns: the interrupt is raised, the fork is
+    stopped and reaped, and Ctrl-C and SIGTERM are no longer held back (POSIX signal masks)."""
+    import signal
+
+    before = signal.pthread_sigmask(signal.SIG_BLOCK, ())
+    pids, fork = [], os.fork
+
+    def interrupted():
+        pid = fork()
+        if pid:
+            pids.append(pid)
+            os.kill(os.getpid(), signal.SIGINT)  # the interrupt, as the fork returns here
+        return pid
+
+    monkeypatch.setattr(os, "fork", interrupted)
+    try:
+        with pytest.raises(KeyboardInterrupt):
+            save_figure_makers(str(tmp_path), _makers(), [], fork=True)
+        assert len(pids) == 1
+        _no_child_left(pids)
+    finally:
+        _end(pids)
+    assert signal.pthread_sigmask(signal.SIG_BLOCK, ()) == before
+
+
+@needs_fork
+@pytest.mark.skipif(not hasattr(__import__("signal"), "pthread_sigmask"), reason="no pthread_sigmask")
+def test_the_fork_draws_with_interrupts_let_through(tmp_path, forks):
+    """The fork lifts the block on Ctrl-C and SIGTERM before it draws, so they can end it."""
+    import signal
+
+    before = signal.pthread_sigmask(signal.SIG_BLOCK, ())
+    makers = _makers()
+    index = _drawing._their_share(makers)[0]
+    draw = makers[index][2]
+
+    def checked():
+        held = signal.pthread_sigmask(signal.SIG_BLOCK, ())
+        if signal.SIGINT in held or signal.SIGTERM in held:
+            raise OptionError("interrupts held back while drawing")
+        return draw()
+
+    makers[index] = (makers[index][0], makers[index][1], checked)
+    pngs = save_figure_makers(str(tmp_path), makers, [], fork=True)
+    _no_child_left(forks)
+    assert all(png.startswith(b"\x89PNG") for _, png in pngs)
+    assert signal.pthread_sigmask(signal.SIG_BLOCK, ()) == before
+
+
+_KILLED_PARENT = r'''
+import os, signal, sys, time
+sys.path.insert(0, sys.argv[1])
+from phasegauge.report._canvas import new_figure
+from phasegauge.report._drawing import save_figure_makers, _their_share
+
+folder, parent = sys.argv[2], os.getpid()
+
+def plot():
+    fig = new_figure(3.0, 2.0)
+    fig.add_subplot().plot([0, 1], [0, 1])
+    return fig
+
+def waits_in_the_fork():
+    if os.getpid() != parent:  # the fork: say who it is, then draw for a long time
+        with open(os.path.join(folder, "fork.pid"), "w") as handle:
+            handle.write(str(os.getpid()))
+        time.sleep(300)
+    return plot()
+
+def killed_here():  # this process dies (SIGKILL: no clean-up) once the fork is drawing
+    while not os.path.exists(os.path.join(folder, "fork.pid")):
+        time.sleep(0.01)
+    os.kill(os.getpid(), signal.SIGKILL)
+
+makers = [(f"p{k}", "", plot) for k in range(4)]
+theirs = _their_share(makers)
+makers[theirs[0]] = ("slow", "", waits_in_the_fork)
+makers[[i for i in range(4) if i not in theirs][0]] = ("dies", "", killed_here)
+save_figure_makers(folder, makers, [], fork=True)
+'''
+
+
+@needs_fork
+@pytest.mark.skipif(not __import__("sys").platform.startswith("linux"), reason="PR_SET_PDEATHSIG is Linux's")
+def test_the_fork_ends_when_its_parent_is_killed(tmp_path):
+    """A run killed with SIGKILL (no clean-up runs) leaves no drawing fork behind (Linux prctl(2),
+    PR_SET_PDEATHSIG)."""
+    import signal
+    import subprocess
+    import sys
+
+    import phasegauge
+
+    src = os.path.dirname(os.path.dirname(phasegauge.__file__))
+    # (output to a file, not a pipe: a fork left behind would hold a pipe open)
+    with open(tmp_path / "stderr.txt", "wb") as stderr:
+        done = subprocess.run([sys.executable, "-c", _KILLED_PARENT, src, str(tmp_path)], stdin=subprocess.DEVNULL,
+                              stdout=subprocess.DEVNULL, stderr=stderr, env={**os.environ, "MPLBACKEND": "Agg"})
+    assert done.returncode == -signal.SIGKILL, (tmp_path / "stderr.txt").read_text()
+    pid = int((tmp_path / "fork.pid").read_text())
+    try:
+        for _ in range(3000):  # the kernel's SIGKILL is immediate; its reaping by init may lag
+            if not _running(pid):
+                break
+            __import__("time").sleep(0.01)
+        assert not _running(pid)
+    finally:
+        if _running(pid):
+            os.kill(pid, signal.SIGKILL)
+
+
+def _running(pid: int) -> bool:
+    """Whether process ``pid`` exists and is not a zombie (Linux /proc)."""
+    try:
+        with open(f"/proc/{pid}/stat", encoding="ascii") as handle:
+            return handle.read().rpartition(")")[2].split()[0] not in ("Z", "X")
+    except (FileNotFoundError, ProcessLookupError):
+        return False
+
+
+@needs_fork
+def test_a_fork_stopped_while_writing_leaves_no_temporary_file(tmp_path, forks):
+    """An error here stops the fork (SIGKILL: its atomic write cannot clean up); the temporary file
+    it was writing is removed (the ``.tmp-<hex><name>.part`` files of ``_files.atomic_write_bytes``)."""
+    import time
+
+    from phasegauge.report._files import TEMP_PREFIX
+
+    parent = os.getpid()
+    makers = _makers()
+    theirs = _drawing._their_share(makers)
+    index, mine = theirs[0], [i for i in range(len(makers)) if i not in theirs][0]
+    temporary = tmp_path / f"{TEMP_PREFIX}0123456789ab{makers[index][0]}.png.part"
+    other = tmp_path / f"{TEMP_PREFIX}0123456789abmine.png.part"  # not the fork's: kept
+    other.write_bytes(b"")
+
+    def writing_in_the_fork():
+        if os.getpid() != parent:  # the fork: half way through writing its file, when it is stopped
+            temporary.write_bytes(b"\x89PNG")
+            time.sleep(300)
+        raise AssertionError("drawn here")
+
+    def broken_once_the_fork_writes():
+        while not temporary.exists():
+            time.sleep(0.01)
+        raise OptionError("bad table")
+
+    makers[index] = (makers[index][0], makers[index][1], writing_in_the_fork)
+    makers[mine] = ("steps", "steps", broken_once_the_fork_writes)
+    try:
+        with pytest.raises(OptionError, match="bad table"):
+            save_figure_makers(str(tmp_path), makers, [], fork=True)
+        _no_child_left(forks)
+    finally:
+        _end(forks)
+    assert not temporary.exists() and other.exists()

@@ -20,7 +20,7 @@ import pickle
 from types import MappingProxyType
 
 from ..errors import AnalysisError, short_text
-from ._files import atomic_save_figure
+from ._files import TEMP_PREFIX, atomic_save_figure
 
 __all__ = ["save_figure_makers", "fork_helps"]
 
@@ -145,15 +145,21 @@ def _draw_split(out: str, makers, theirs: list, plot_format: str, pngs: list) ->
         import_module(module)                                                # none of matplotlib again
     import gc
 
+    held = _signal_mask()
     # the objects made so far leave the collector's view while the fork lives: a collection would
     # write to every one of them, and each page written is copied (in the fork, and here while it runs)
     freeze = gc.get_freeze_count() == 0  # (a program that froze objects itself keeps them so)
     if freeze:
         gc.freeze()
     read_end, write_end = os.pipe()
+    parent = os.getpid()
     try:
+        # Ctrl-C or SIGTERM waits while the fork is made: an interrupt raised as os.fork returns
+        # would lose the fork's pid (a fork left running), or leave the fork in this program's code
+        _block_interrupts()
         pid = os.fork()
     except BaseException:
+        _set_signal_mask(held)
         if freeze:
             gc.unfreeze()
         os.close(read_end)
@@ -162,14 +168,17 @@ def _draw_split(out: str, makers, theirs: list, plot_format: str, pngs: list) ->
     if pid == 0:  # the fork: draw, send, leave without running this process's exit handlers
         status = 1
         try:
+            _set_signal_mask(held)  # an interrupt ends the fork from here on
+            _die_with_parent(parent)
             os.close(read_end)
             _send(write_end, _draw_all(out, makers, theirs, plot_format))
             status = 0
         finally:
             os._exit(status)
-    os.close(write_end)
     received = None
     try:
+        os.close(write_end)
+        _set_signal_mask(held)  # an interrupt from here on stops the fork (below)
         for index in range(len(makers)):
             if index not in theirs:
                 pngs[index] = _draw(out, makers[index], plot_format)
@@ -184,6 +193,7 @@ def _draw_split(out: str, makers, theirs: list, plot_format: str, pngs: list) ->
             pass
         if freeze:
             gc.unfreeze()
+        _remove_temporaries(out, [f"{makers[i][0]}.{plot_format}" for i in theirs if i not in (received or {})])
     for index, (kind, value) in (received or {}).items():
         if kind == "error":
             raise _raised(value, makers[index][0])
@@ -208,6 +218,24 @@ def _draw_all(out: str, makers, indices: list, plot_format: str) -> dict:
             done[index] = ("error", record)
             break
     return done
+
+
+def _remove_temporaries(out: str, names: list) -> None:
+    """Remove the temporary files of ``names`` that a fork stopped (or dead) while writing them left in ``out``."""
+    if not names:
+        return
+    import re
+
+    pattern = re.compile(f"{re.escape(TEMP_PREFIX)}[0-9a-f]{{12}}({'|'.join(map(re.escape, names))})\\.part")
+    try:
+        found = [name for name in os.listdir(out) if pattern.fullmatch(name)]
+    except OSError:
+        return
+    for name in found:
+        try:
+            os.remove(os.path.join(out, name))
+        except OSError:
+            pass
 
 
 def _send(fd: int, done: dict) -> None:
@@ -255,3 +283,46 @@ def _stop(pid: int) -> None:
         os.kill(pid, signal.SIGKILL)
     except OSError:  # already ended
         pass
+
+
+def _signal_mask():
+    """This thread's blocked signals (None where the system has no ``pthread_sigmask``)."""
+    import signal
+
+    return signal.pthread_sigmask(signal.SIG_BLOCK, ()) if hasattr(signal, "pthread_sigmask") else None
+
+
+def _block_interrupts() -> None:
+    """Hold back SIGINT and SIGTERM (delivered when :func:`_set_signal_mask` lifts the block)."""
+    import signal
+
+    if hasattr(signal, "pthread_sigmask"):
+        signal.pthread_sigmask(signal.SIG_BLOCK, {signal.SIGINT, signal.SIGTERM})
+
+
+def _set_signal_mask(mask) -> None:
+    import signal
+
+    if mask is not None:
+        signal.pthread_sigmask(signal.SIG_SETMASK, mask)
+
+
+def _die_with_parent(parent: int) -> None:
+    """End this fork when the process that made it ends, however it ends (SIGKILL, the OOM killer).
+
+    On Linux the kernel sends SIGKILL on the parent's death (``prctl(PR_SET_PDEATHSIG)``); the fork
+    would otherwise go on writing figures into an output folder its run has left.
+    """
+    import sys
+
+    if sys.platform.startswith("linux"):
+        import signal
+
+        try:
+            import ctypes
+
+            ctypes.CDLL(None, use_errno=True).prctl(1, signal.SIGKILL, 0, 0, 0)  # PR_SET_PDEATHSIG = 1
+        except (OSError, AttributeError):  # pragma: no cover - no prctl
+            pass
+    if os.getppid() != parent:  # the parent ended before the guard was set
+        os._exit(1)
