@@ -151,7 +151,11 @@ def test_the_fork_is_used_only_where_it_can_help(monkeypatch):
     monkeypatch.setattr(_drawing, "_busy_cores", lambda: 0.2)
     monkeypatch.setattr(os, "sched_getaffinity", lambda pid: {0, 1}, raising=False)
     monkeypatch.setattr(os, "fork", lambda: None, raising=False)
+    monkeypatch.setattr(_drawing.sys, "platform", "linux")
     assert fork_helps(7) == (threading.active_count() == 1)
+    monkeypatch.setattr(_drawing.sys, "platform", "darwin")
+    assert not fork_helps(7)  # a forked child may hang in system libraries there: one process
+    monkeypatch.setattr(_drawing.sys, "platform", "linux")
     assert not fork_helps(2)  # too few figures to share
     monkeypatch.setattr(_drawing, "_busy_cores", lambda: 1.5)
     assert not fork_helps(7)  # the second core is busy

@@ -17,6 +17,7 @@ from __future__ import annotations
 
 import os
 import pickle
+import sys
 from types import MappingProxyType
 
 from ..errors import AnalysisError, short_text
@@ -33,14 +34,15 @@ _WEIGHTS = MappingProxyType({"interface_snapshots": 3.0, "interface_width": 2.0,
 def fork_helps(count: int) -> bool:
     """Whether drawing ``count`` figures in two processes is expected to end sooner than in one.
 
-    Yes where there are at least 3 figures, ``os.fork`` exists, this process runs no other thread
+    Yes on Linux only (elsewhere system libraries may hang a forked child, which is why Python
+    starts its own workers by spawn on macOS), where there are at least 3 figures, this process runs no other thread
     and is not itself a worker process (``multiprocessing``), and a second core is free: two or
     more cores available to this process, and fewer than the cores less one busy with other work
     (:func:`_busy_cores`).
     """
     import threading
 
-    if count < 3 or not hasattr(os, "fork") or threading.active_count() != 1:
+    if count < 3 or not sys.platform.startswith("linux") or not hasattr(os, "fork") or threading.active_count() != 1:
         return False
     import multiprocessing
 
