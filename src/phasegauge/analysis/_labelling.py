@@ -45,6 +45,7 @@ from ..model.axes import AXIS_INDEX, AXIS_NAMES
 from ..model.corners import corner_extremes
 from ..model.fields import cell_values, vector_values
 from ..model.mesh import Mesh
+from ..model._grouping import index_dtype
 from ._band_sharing import finish_far_band, share_band
 from ._droplet_graph import join_periodic, neighbour_table, periodic_pairs, pieces
 from ._droplet_measures import (TABLE_COLUMNS, droplet_boxes, droplet_table, mean_velocity, shape_factors,
@@ -175,7 +176,7 @@ def _near_cells(mesh: Mesh, c0: np.ndarray, *, level: float, band_floor: float) 
     cells = np.flatnonzero(c0 > band_floor)
     k = cells.size
     # entry n_cells (index -1): "no cell"; int32 where it fits (the local neighbour rows take its type)
-    local = np.full(mesh.n_cells + 1, k, dtype=np.int32 if k < 2 ** 31 - 1 else np.int64)
+    local = np.full(mesh.n_cells + 1, k, dtype=index_dtype(k))
     local[cells] = np.arange(k)
     c_near = c0[cells]
     core = c_near > level

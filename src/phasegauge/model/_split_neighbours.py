@@ -22,14 +22,9 @@ from __future__ import annotations
 
 import numpy as np
 
-from ._grouping import CHUNK, _sort_order, group_columns, sort_columns, sort_small_rows
+from ._grouping import CHUNK, _bits, _sort_order, group_columns, index_dtype, sort_columns, sort_small_rows
 
 __all__ = ["edge_twins", "split_neighbours", "ordered_rows", "sorted_with_places"]
-
-
-def _bits(n: int) -> int:
-    """Bits for the integers 0 .. n - 1, at least one (polyhedra.py packs its keys with it too)."""
-    return max(int(n - 1).bit_length(), 1)
 
 
 def edge_twins(face_points: np.ndarray, nxt: np.ndarray, edge_cell: np.ndarray, n_points: int) -> np.ndarray | None:
@@ -45,14 +40,14 @@ def edge_twins(face_points: np.ndarray, nxt: np.ndarray, edge_cell: np.ndarray, 
         return np.zeros(0, dtype=np.int64)
     if np.any(edge_cell[1:] < edge_cell[:-1]):
         return None
-    bits = _bits(n_points)
+    bits = max(_bits(n_points), 1)
     room = 63 - 2 * bits
     if room < 8:
         return None
     b = face_points[nxt]
     if np.any(face_points == b):
         return None
-    twin = np.empty(n, dtype=np.int32 if n < 2 ** 31 - 1 else np.int64)
+    twin = np.empty(n, dtype=index_dtype(n))
     cell_start = np.flatnonzero(np.concatenate([[True], edge_cell[1:] != edge_cell[:-1]]))
     span = 1 << min(room, 30)
     lo = 0
@@ -210,7 +205,7 @@ def ordered_rows(neighbours: np.ndarray) -> np.ndarray:
         keys = []
         for j in range(nb.shape[1]):
             col = nb[:, j]
-            key = col.astype(np.int32 if 2 * n < 2 ** 31 - 1 else np.int64)
+            key = col.astype(index_dtype(2 * n))
             key[col < own] += n
             key[col < 0] = 2 * n
             keys.append(key)

@@ -28,7 +28,7 @@ from ._conversions import corner_sums, linear_point_values
 from ._faces import (cell_adjacency, face_pairs, face_rows, face_topology, grid_face_numbers, grouped_faces,
                      local_faces, row_owners, unique_edges)
 from ._geometry import cell_geometry
-from ._grouping import index_dtype
+from ._grouping import index_dtype, unique_ints
 from ._regular_grid import RegularGrid, find_regular_grid
 from .cells import CELL_DIMENSION, LINEAR_CORNERS
 
@@ -379,7 +379,7 @@ class Mesh:
     @cached_property
     def n_whole_cells(self) -> int:
         """Number of cells as the file has them: the pieces of a split cell (:attr:`cell_parents`) count once."""
-        return self.n_cells if self.cell_parents is None else int(np.unique(self.cell_parents).size)
+        return self.n_cells if self.cell_parents is None else int(unique_ints(self.cell_parents).size)
 
     @cached_property
     def total_measure(self) -> float:

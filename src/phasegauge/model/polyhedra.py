@@ -39,8 +39,8 @@ from dataclasses import dataclass
 import numpy as np
 
 from ..errors import UnsupportedMeshError
-from ._grouping import group_columns, index_dtype
-from ._split_neighbours import _bits, edge_twins, ordered_rows, sorted_with_places, split_neighbours
+from ._grouping import _bits, group_columns, index_dtype
+from ._split_neighbours import edge_twins, ordered_rows, sorted_with_places, split_neighbours
 from .cells import FACES
 
 __all__ = ["PolyhedraSplit", "split_polyhedra", "cell_face_stream"]
@@ -265,8 +265,8 @@ def split_polyhedra(points: np.ndarray, face_points, face_offsets, face_cell, n_
     sizes = _check_faces(n_points, face_points, face_offsets, face_cell, n_cells, where, ids)
     nxt = _next_corners(face_offsets, sizes)
     edge_cell = np.repeat(face_cell, sizes)
-    bits = _bits(n_points)
-    packed = _bits(n_cells) + 2 * bits <= 63  # (cell, point) and (cell, point, point) keys fit in int64
+    bits = max(_bits(n_points), 1)
+    packed = max(_bits(n_cells), 1) + 2 * bits <= 63  # (cell, point) and (cell, point, point) keys fit in int64
     # each edge's twin in its cell (None: the surface is not closed, or the stream not in cell order)
     twin = edge_twins(face_points, nxt, edge_cell, n_points)
     if twin is None and not (packed and _closed_by_keys(face_points, nxt, edge_cell, bits)):
