@@ -34,6 +34,8 @@ def _boundary_point_pairs(mesh: Mesh, axis: int):
     high = np.flatnonzero(np.abs(points[:, axis] - hi) <= tol)
     if len(low) < 2 or len(low) != len(high) or len(low) + len(high) == len(points):
         return None  # no pairs, or no point between the planes (a mesh one cell thick along the axis)
+    if mesh.cell_parents is not None and _every_cell_spans(mesh, used[low], used[high]):
+        return None  # one cell thick with split cells: their added centres lie between the planes
     others = [a for a in range(3) if a != axis]
     key_lo = np.round(points[low][:, others] / (1e3 * tol)).astype(np.int64)
     key_hi = np.round(points[high][:, others] / (1e3 * tol)).astype(np.int64)
@@ -53,6 +55,19 @@ def _boundary_point_pairs(mesh: Mesh, axis: int):
             if np.array_equal(key_in[order_in], key_lo[order_lo]):
                 inner = used[nxt[order_in]]
     return used[low[order_lo]], used[high[order_hi]], inner
+
+
+def _every_cell_spans(mesh: Mesh, low: np.ndarray, high: np.ndarray) -> bool:
+    """Whether every whole cell (:attr:`Mesh.cell_parents`) has a corner on both boundary planes."""
+    on_low = np.zeros(mesh.n_points, dtype=bool)
+    on_high = np.zeros(mesh.n_points, dtype=bool)
+    on_low[low], on_high[high] = True, True
+    touches = [np.concatenate([flags[block.connectivity].any(axis=1) for block in mesh.blocks])
+               for flags in (on_low, on_high)]
+    parents = np.asarray(mesh.cell_parents, dtype=np.intp)
+    cells = np.bincount(parents) > 0
+    return bool(np.all((np.bincount(parents, weights=touches[0]) > 0)[cells])
+                and np.all((np.bincount(parents, weights=touches[1]) > 0)[cells]))
 
 
 def looks_periodic(mesh: Mesh, c_point, *, periodic=()) -> list:
