@@ -26,8 +26,9 @@ from ._files import TEMP_PREFIX, atomic_save_figure
 __all__ = ["save_figure_makers", "fork_helps"]
 
 #: how much each figure costs to make, lay out and draw, relative to a one-axes time plot (others: 1);
-#: from ``benchmarks/bench_report.py --figures`` (CPU seconds per figure, ninth round)
-_WEIGHTS = MappingProxyType({"interface_snapshots": 3.0, "interface_width": 2.0, "mixing_profile": 1.5,
+#: the snapshots from ``benchmarks/bench_report.py --figures`` (RESULTS.md, "Ninth round: the report
+#: in a fresh process", per figure: 0.086-0.090 s against about 0.053 s a 2D figure), the rest estimates
+_WEIGHTS = MappingProxyType({"interface_snapshots": 1.6, "interface_width": 2.0, "mixing_profile": 1.5,
                              "droplet_sizes": 1.2, "phase_compositions": 1.5})
 
 
@@ -104,7 +105,7 @@ def save_figure_makers(out: str, makers, written: list, plot_format: str = "png"
     if fork is None:
         fork = fork_helps(len(makers))
     pngs = [None] * len(makers)
-    theirs = _their_share(makers) if fork and hasattr(os, "fork") and len(makers) > 1 else []
+    theirs = _their_share(makers) if fork and hasattr(os, "fork") else []
     if theirs:
         _draw_split(out, makers, theirs, plot_format, pngs)
     else:
@@ -117,11 +118,12 @@ def save_figure_makers(out: str, makers, written: list, plot_format: str = "png"
 def _their_share(makers) -> list:
     """The indices of the figures the fork draws: about half the total weight, the costliest first."""
     order = sorted(range(len(makers)), key=lambda i: -_WEIGHTS.get(makers[i][0], 1.0))
-    mine, theirs, load = [], [], [0.0, 0.0]
+    theirs, load = [], [0.0, 0.0]
     for index in order:
         side = 0 if load[0] <= load[1] else 1
         load[side] += _WEIGHTS.get(makers[index][0], 1.0)
-        (mine if side == 0 else theirs).append(index)
+        if side == 1:
+            theirs.append(index)
     return sorted(theirs)
 
 
@@ -315,8 +317,6 @@ def _die_with_parent(parent: int) -> None:
     On Linux the kernel sends SIGKILL on the parent's death (``prctl(PR_SET_PDEATHSIG)``); the fork
     would otherwise go on writing figures into an output folder its run has left.
     """
-    import sys
-
     if sys.platform.startswith("linux"):
         import signal
 
