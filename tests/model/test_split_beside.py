@@ -66,3 +66,19 @@ def test_a_mesh_without_face_centres_is_returned_as_it_is():
     blocks = [("hexahedron", mesh.blocks[0].connectivity)]
     result = split_beside(mesh.points, blocks, [None], {}, out)
     assert result[0] is blocks and out.n_centres == 0
+
+
+@pytest.mark.parametrize("high", [3, 1000, 2 ** 40])
+def test_quad_faces_are_grouped_as_numpy_groups_them(high):
+    # the split's face grouping by packed sorts against numpy's np.unique(axis=0) [lib]: the same
+    # rows in the same order and the same row numbers (the new face centres are numbered in it)
+    from phasegauge.model.convex_cells import _unique_rows
+
+    rng = np.random.default_rng(high % 97)
+    rows = rng.integers(0, high, size=(400, 4))
+    rows = np.concatenate([rows, rows[::3]])  # repeated faces
+    unique, inverse = _unique_rows(rows)
+    expected, expected_inverse = np.unique(rows, axis=0, return_inverse=True)
+    np.testing.assert_array_equal(unique, expected)
+    np.testing.assert_array_equal(inverse, expected_inverse.ravel())
+    assert _unique_rows(rows[:0])[0].shape == (0, 4)
