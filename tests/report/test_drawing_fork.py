@@ -152,7 +152,11 @@ def test_the_fork_is_used_only_where_it_can_help(monkeypatch):
     monkeypatch.setattr(os, "sched_getaffinity", lambda pid: {0, 1}, raising=False)
     monkeypatch.setattr(os, "fork", lambda: None, raising=False)
     monkeypatch.setattr(_drawing.sys, "platform", "linux")
-    assert fork_helps(7) == (threading.active_count() == 1)
+    # this process alone (whatever threads the test run keeps): every condition met, the fork helps;
+    # each check below takes one condition away
+    real_count = threading.active_count
+    monkeypatch.setattr(threading, "active_count", lambda: 1)
+    assert fork_helps(7) is True
     monkeypatch.setattr(_drawing.sys, "platform", "darwin")
     assert not fork_helps(7)  # a forked child may hang in system libraries there: one process
     monkeypatch.setattr(_drawing.sys, "platform", "linux")
@@ -162,12 +166,16 @@ def test_the_fork_is_used_only_where_it_can_help(monkeypatch):
     monkeypatch.setattr(_drawing, "_busy_cores", lambda: 0.2)
     monkeypatch.setattr(os, "sched_getaffinity", lambda pid: {0})
     assert not fork_helps(7)  # one core
+    monkeypatch.setattr(os, "sched_getaffinity", lambda pid: {0, 1})
+    assert fork_helps(7) is True  # the conditions met again
+    monkeypatch.setattr(threading, "active_count", lambda: 2)
+    assert not fork_helps(7)  # another thread runs: no fork
+    monkeypatch.setattr(threading, "active_count", real_count)
     stop = threading.Event()
     other = threading.Thread(target=stop.wait)
     other.start()
     try:
-        monkeypatch.setattr(os, "sched_getaffinity", lambda pid: {0, 1})
-        assert not fork_helps(7)  # another thread runs: no fork
+        assert not fork_helps(7)  # a real one, counted by threading itself
     finally:
         stop.set()
         other.join()
