@@ -129,12 +129,13 @@ def good_cells_fit(mesh: Mesh, good: np.ndarray) -> PointFit:
     bytes a (point, good cell) pair, as :func:`point_fit`. The stencil it is built from (48 bytes a
     pair) is kept only once the pattern has changed (NaN cells that move from step to step).
     """
-    kept = mesh.memo("point_fit_of_good_cells", dict)  # {'good': packed pattern, 'fit': PointFit}
+    kept = mesh.memo("point_fit_of_good_cells", dict)  # {'last': (packed pattern, PointFit)}
     packed = np.packbits(good)
-    if kept.get("good") is not None and np.array_equal(kept["good"], packed):
-        return kept["fit"]
-    moved = kept.get("good") is not None  # the pattern moved: the stencil is kept for the next move
-    kept.clear()  # the earlier pattern's fit goes before the new one is built
+    last = kept.get("last")  # one read: another thread may replace it meanwhile
+    if last is not None and np.array_equal(last[0], packed):
+        return last[1]
+    moved = last is not None  # the pattern moved: the stencil is kept for the next move
+    kept.pop("last", None)  # the earlier pattern's fit goes before the new one is built
     rows, cols, dx, w, indptr = _stencil(mesh, keep=moved)
     ok = good[cols]
     rows = rows[ok]
@@ -142,7 +143,7 @@ def good_cells_fit(mesh: Mesh, good: np.ndarray) -> PointFit:
     indptr = np.zeros(mesh.n_points + 1, dtype=indptr.dtype)
     np.cumsum(counts, out=indptr[1:])
     fit = _fit_of(rows, cols[ok], dx[ok], w[ok], indptr, mesh.dimension, mesh.n_points)
-    kept.update(good=packed, fit=fit)
+    kept["last"] = (packed, fit)
     return fit
 
 
