@@ -137,3 +137,28 @@ def test_square_duct_flow_3d_on_cells(kind):
     # inlet and outlet, less at most a ring of faces at their edges (where u.n falls to the wall in one cell)
     assert 2 - 8 * h - 1e-12 <= out["open_boundary_area"] <= 2 + 1e-12
     assert out["boundary_phase_outflow"] == pytest.approx(-1.0, abs=2 * h ** 2)
+
+
+@pytest.mark.parametrize("kind", ["triangle", "tetra"])
+def test_a_mesh_keeping_its_face_pairs_as_a_neighbour_table_is_read_from_the_table(kind, monkeypatch):
+    # once the droplet labelling's table holds the face pairs, Mesh.face_pairs rebuilds them on
+    # every read: the flux reads the table's rows instead, with the same figures bit for bit; the
+    # channel's flow rate stays the analytic one, 1 [analytic, as test_square_duct_flow_3d_on_cells]
+    from phasegauge.analysis._droplet_graph import neighbour_table
+    from phasegauge.model import mesh as mesh_module
+
+    shape = (24, 12) if kind == "triangle" else (8, 8, 8)
+    meshes = [grid_mesh(shape, kind=kind, jitter=0.2, seed=5) for _ in range(2)]
+    centroids = meshes[0].cell_centroids
+    y, z = centroids[:, 1], (centroids[:, 2] if kind == "tetra" else np.full(len(centroids), 0.5))
+    u = np.stack([36 * y * (1 - y) * z * (1 - z), 0 * y, 0 * y], axis=1)
+    c = (centroids[:, 0] < 0.5).astype(float)
+    expected = open_boundary_flux(meshes[0], u, c, velocity_location="cell", c_location="cell")
+    neighbour_table(meshes[1])
+    assert meshes[1]._face_topology["pairs"] is None  # the mesh keeps the table only
+    reads = []
+    face_pairs = mesh_module.face_pairs
+    monkeypatch.setattr(mesh_module, "face_pairs", lambda m: reads.append(1) or face_pairs(m))
+    out = open_boundary_flux(meshes[1], u, c, velocity_location="cell", c_location="cell")
+    assert out == expected and not reads
+    assert out["boundary_phase_outflow"] == pytest.approx(-1.0 if kind == "tetra" else -1.5, rel=0.1)

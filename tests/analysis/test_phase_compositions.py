@@ -250,3 +250,44 @@ def test_cells_the_contour_crosses_are_not_bulk_with_a_reach_under_half_a_cell(k
         wrong = bulk & (exact < reach - 0.05 * h) & (to_centre <= reach)
         assert not wrong.any(), (reach / h, int(wrong.sum()))
         assert bulk[exact > reach + h].all()
+
+
+@pytest.mark.parametrize("kind,reach", [("quad", np.inf), ("triangle", 0.3), ("quad", 0.08), ("tetra", 0.3)])
+def test_interface_distance_wraps_a_periodic_boundary(kind, reach):
+    # c = 1/2 + 1/2 cos(2 pi (x - 0.3)) on [0, 1] periodic in x: interfaces (c = 1/2) at x = 0.05 and
+    # x = 0.55, and a period away at x = 1.05 and -0.45, so the distance of a centroid at x is
+    # min |x - x_i| over those four [analytic]; without the wrap a cell at x = 0.95 is 0.4 from the
+    # interface, not 0.1
+    from phasegauge.analysis.interface import find_interface
+    from phasegauge.analysis.thermo import interface_distance
+
+    if kind == "tetra":
+        mesh = grid_mesh((40, 3, 3), bounds=[(0.0, 1.0), (0.0, 0.1), (0.0, 0.1)], kind=kind)
+    else:
+        mesh = grid_mesh((80, 8), bounds=[(0.0, 1.0), (0.0, 0.1)], kind=kind)
+    c_point = 0.5 + 0.5 * np.cos(2 * np.pi * (mesh.coordinates[:, 0] - 0.3))
+    c_cell = mesh.point_to_cell(c_point)
+    contour = find_interface(mesh, c_point)
+    x = mesh.cell_centroids[:, 0]
+    exact = np.min(np.abs(x[:, None] - np.array([-0.45, 0.05, 0.55, 1.05])[None, :]), axis=1)
+    wrapped = interface_distance(mesh, c_cell, contour, reach=reach, periodic=("x",))
+    near = exact <= reach
+    # the contour's points are linear interpolations of a cosine at its zero: O(h^3) off; the
+    # distance of a centroid to a straight contour is then exact to that
+    np.testing.assert_allclose(np.abs(wrapped[near]), exact[near], atol=1e-4)
+    np.testing.assert_array_equal(np.sign(wrapped), np.where(c_cell > 0.5, 1.0, -1.0))
+    if np.isfinite(reach):
+        np.testing.assert_array_equal(np.abs(wrapped[~near]), 2 * reach)  # beyond reach, as without the wrap
+    flat = interface_distance(mesh, c_cell, contour, reach=reach)  # not periodic: the other interface only
+    beside = (x > 0.9) & (exact <= reach)
+    assert beside.any() and np.all(np.abs(flat[beside]) > np.abs(wrapped[beside]) + 0.05)
+
+
+def test_interface_distance_refuses_an_axis_the_mesh_does_not_span():
+    from phasegauge.analysis.interface import find_interface
+    from phasegauge.analysis.thermo import interface_distance
+
+    mesh = grid_mesh((8, 8))
+    c_point = (mesh.coordinates[:, 0] > 0.5).astype(float)
+    with pytest.raises(OptionError, match="periodic axis 'z' is not an axis"):
+        interface_distance(mesh, mesh.point_to_cell(c_point), find_interface(mesh, c_point), periodic=("z",))

@@ -60,3 +60,36 @@ def test_folder_listing_naming_some_files_warns_of_the_others(tmp_path):
         warnings.simplefilter("error")  # a listing naming every file warns of nothing
         (tmp_path / "all").mkdir()
         Series(_folder(tmp_path / "all", "time,path\n0,out_0.vtu\n1,out_1.vtu\n2,out_2.vtu\n"))
+
+
+def test_patch_files_beside_listed_steps_are_no_missing_steps(tmp_path):
+    # regression: a solver's boundary patches written beside the volume files (wall_0000.vtp, and
+    # as .vtu files too) were named in the warning as steps the listing left out
+    import warnings
+
+    import meshio
+    import pyvista
+
+    folder = tmp_path / "run"
+    folder.mkdir()
+    mesh = grid_mesh((3, 3))
+    for i in range(4):
+        to_meshio(mesh, point_data={"c": np.full(mesh.n_points, 0.1 * i)}).write(str(folder / f"out_{i:04d}.vtu"))
+    corners = np.array([[0.0, 0.0, 0.0], [1.0, 0.0, 0.0], [0.0, 1.0, 0.0]])
+    patch = meshio.Mesh(corners, [("triangle", [[0, 1, 2]])])
+    for i in range(4):
+        for name in (f"wall_{i:04d}.vtu", f"inlet_{i:04d}.vtk"):
+            patch.write(str(folder / name))
+        pyvista.PolyData(corners, faces=[3, 0, 1, 2]).save(str(folder / f"wall_{i:04d}.vtp"))
+    (folder / "times.csv").write_text("time,path\n0.0,out_0000.vtu\n0.1,out_0001.vtu\n0.3,out_0003.vtu\n")
+    with warnings.catch_warnings(record=True) as caught:
+        warnings.simplefilter("always")
+        series = Series(str(folder))
+    assert [s.time for s in series.steps] == [0.0, 0.1, 0.3]
+    texts = [str(w.message) for w in caught if "listing" in str(w.message)]
+    assert len(texts) == 1, texts  # the step left out, named; no patch file
+    assert "1 mesh file in the folder is not in the step listing times.csv (out_0002.vtu)" in texts[0], texts[0]
+    (folder / "times.csv").write_text("time,path\n" + "".join(f"{0.1 * i},out_{i:04d}.vtu\n" for i in range(4)))
+    with warnings.catch_warnings():
+        warnings.simplefilter("error")  # every step listed: the patch files beside them warn of nothing
+        Series(str(folder))

@@ -73,3 +73,21 @@ def test_a_rewritten_hdf5_file_is_checked_again(tmp_path, monkeypatch):
     with pytest.raises(UnreadableFileError, match="but stores only"):
         series.read(1)
     assert opened == ["step_0.h5", "step_0.h5"]
+
+
+def test_each_hdf5_file_is_looked_at_once_per_check(tmp_path, monkeypatch):
+    # regression: the check stat-ed each file twice (its key, then whether it is a file)
+    folder = _steps(tmp_path, n=1)
+    h5 = str(folder / "step_0.h5")
+    opened = _counting(monkeypatch)
+    looked, stat = [], os.stat
+    monkeypatch.setattr(os, "stat", lambda path, *a, **k: (looked.append(os.fspath(path)), stat(path, *a, **k))[1])
+    checked = _claims.CheckedFiles()
+    _claims.check_hdf5_claims(str(folder / "step_0.xdmf"), [h5], checked=checked)
+    assert looked.count(h5) == 1 and opened == ["step_0.h5"]
+    _claims.check_hdf5_claims(str(folder / "step_0.xdmf"), [h5], checked=checked)  # passed before: not opened
+    assert looked.count(h5) == 2 and opened == ["step_0.h5"]
+    # a file that is missing or a folder is left to the reader, unopened
+    _claims.check_hdf5_claims(str(folder / "step_0.xdmf"), [str(folder / "gone.h5"), str(folder)], checked=checked)
+    _claims.check_hdf5_claims(str(folder / "step_0.xdmf"), [str(folder)])
+    assert opened == ["step_0.h5"]

@@ -4,16 +4,18 @@ import numpy as np
 import pytest
 
 from phasegauge.meshgen import delaunay_mesh, grid_mesh
-from phasegauge.model._conversions import _fit_some_good, linear_point_values
+from phasegauge.model import _conversions
+from phasegauge.model._conversions import linear_point_values
 
 
 def _lstsq_point_values(mesh, values):
-    # numpy.linalg.lstsq per point: the weighted linear fit through the centroids of the cells around
-    # the point (weights 1 / distance^2), evaluated at the point; then limited to those cells' range
+    # numpy.linalg.lstsq per point: the weighted linear fit through the centroids of the (finite) cells
+    # around the point (weights 1 / distance^2), evaluated at the point; then limited to those cells' range
     incidence = mesh.incidence.T.tocsr()
     out = np.full(mesh.n_points, np.nan)
     for p in range(mesh.n_points):
         cells = incidence.indices[incidence.indptr[p]:incidence.indptr[p + 1]]
+        cells = cells[np.isfinite(values[cells])]
         if len(cells) <= mesh.dimension + 1:
             continue
         dx = mesh.cell_centroids[cells] - mesh.coordinates[p]
@@ -40,16 +42,31 @@ def test_point_fit_matches_numpy_least_squares(mesh):
     np.testing.assert_allclose(ours[fitted], reference[fitted], rtol=1e-9, atol=1e-12)
 
 
-def test_precomputed_fit_equals_the_fit_per_call():
-    # every cell good: the per-pair weights give the fit the normal equations give per call (round-off)
+def test_fit_through_the_good_cells_matches_numpy_least_squares_and_is_kept_for_its_pattern(monkeypatch):
+    # NaN cells: the fit through the good cells around each point against numpy's lstsq [lib], built
+    # once while the NaN cells stay where they are and again when they move
     mesh = grid_mesh((6, 6, 6), kind="tetra", jitter=0.2, seed=7)
     rng = np.random.default_rng(1)
-    flat = rng.random((mesh.n_cells, 2))
+    built = []
+    fit_of = _conversions._fit_of
+    monkeypatch.setattr(_conversions, "_fit_of", lambda *a: built.append(1) or fit_of(*a))
+    patterns = [rng.random(mesh.n_cells) < 0.1 for _ in range(2)]
+    for bad in (patterns[0], patterns[0], patterns[1], patterns[0]):
+        values = np.sin(3 * mesh.cell_centroids[:, 0]) + 0.3 * rng.standard_normal(mesh.n_cells)
+        values[bad] = np.nan
+        ours = mesh.cell_to_point(values)
+        reference = _lstsq_point_values(mesh, values)
+        fitted = np.isfinite(reference)
+        assert fitted.sum() > 0.25 * mesh.n_points
+        np.testing.assert_allclose(ours[fitted], reference[fitted], rtol=1e-9, atol=1e-12)
+    assert len(built) == 3  # the first pattern, the second, the first again (the last one is kept)
+    # several components: a cell is good where all are finite, each component fitted alike
+    flat = np.stack([values, 2 * values], axis=1)
     fallback = np.zeros((mesh.n_points, 2))
-    good = np.ones(mesh.n_cells, dtype=bool)
-    fast = linear_point_values(mesh, flat, good, fallback)
-    direct = _fit_some_good(mesh, flat, good, fallback)
-    np.testing.assert_allclose(fast, direct, rtol=1e-12, atol=1e-14)
+    both = linear_point_values(mesh, flat, np.isfinite(values), fallback)
+    np.testing.assert_allclose(both[fitted], np.stack([reference, 2 * reference], axis=1)[fitted], rtol=1e-9,
+                               atol=1e-12)
+    assert len(built) == 3
 
 
 def test_bad_cells_are_left_out_of_the_fit():

@@ -23,12 +23,14 @@ def test_cells_beside_split_ones_become_positive_pieces_of_their_volume(kind):
     block = mesh.blocks[0]
     X = mesh.points
     right = X[block.connectivity].mean(axis=1)[:, 0] > 0.5
-    out = convert_convex_point_sets(X, block.connectivity[right][:, ::-1])  # the right half as convex sets
-    assert out.counts.get("split") or out.counts.get("hexahedron")
-    if not out.face_centres:  # hexahedra recognised: nothing split, nothing changes
-        blocks = [(kind, block.connectivity[~right])]
-        assert split_beside(X, blocks, [None], {"c": [np.zeros(len(blocks[0][1]))]}, out)[0] is blocks
-        return
+    convex = block.connectivity[right][:, ::-1]  # the right half as convex sets
+    if kind == "hexahedron":
+        # a box's eight corners are recognised as a hexahedron and nothing would be split: a ninth
+        # corner beyond the right face (a box with a roof) makes the right cell one split about its centre
+        X = np.vstack([X, [[1.25, 0.5, 0.5]]])
+        convex = np.column_stack([convex, np.full(len(convex), len(X) - 1)])
+    out = convert_convex_point_sets(X, convex)
+    assert out.counts.get("split") and out.face_centres
     blocks = [(kind, block.connectivity[~right])] + out.blocks
     data = {"c": [np.arange(len(b[1]), dtype=float) for b in blocks]}
     n_before = out.n_centres
@@ -66,3 +68,19 @@ def test_a_mesh_without_face_centres_is_returned_as_it_is():
     blocks = [("hexahedron", mesh.blocks[0].connectivity)]
     result = split_beside(mesh.points, blocks, [None], {}, out)
     assert result[0] is blocks and out.n_centres == 0
+
+
+@pytest.mark.parametrize("high", [3, 1000, 2 ** 40])
+def test_quad_faces_are_grouped_as_numpy_groups_them(high):
+    # the split's face grouping by packed sorts against numpy's np.unique(axis=0) [lib]: the same
+    # rows in the same order and the same row numbers (the new face centres are numbered in it)
+    from phasegauge.model.convex_cells import _unique_rows
+
+    rng = np.random.default_rng(high % 97)
+    rows = rng.integers(0, high, size=(400, 4))
+    rows = np.concatenate([rows, rows[::3]])  # repeated faces
+    unique, inverse = _unique_rows(rows)
+    expected, expected_inverse = np.unique(rows, axis=0, return_inverse=True)
+    np.testing.assert_array_equal(unique, expected)
+    np.testing.assert_array_equal(inverse, expected_inverse.ravel())
+    assert _unique_rows(rows[:0])[0].shape == (0, 4)

@@ -152,7 +152,11 @@ def test_the_fork_is_used_only_where_it_can_help(monkeypatch):
     monkeypatch.setattr(os, "sched_getaffinity", lambda pid: {0, 1}, raising=False)
     monkeypatch.setattr(os, "fork", lambda: None, raising=False)
     monkeypatch.setattr(_drawing.sys, "platform", "linux")
-    assert fork_helps(7) == (threading.active_count() == 1)
+    # this process alone (whatever threads the test run keeps): every condition met, the fork helps;
+    # each check below takes one condition away
+    real_count = threading.active_count
+    monkeypatch.setattr(threading, "active_count", lambda: 1)
+    assert fork_helps(7) is True
     monkeypatch.setattr(_drawing.sys, "platform", "darwin")
     assert not fork_helps(7)  # a forked child may hang in system libraries there: one process
     monkeypatch.setattr(_drawing.sys, "platform", "linux")
@@ -162,12 +166,16 @@ def test_the_fork_is_used_only_where_it_can_help(monkeypatch):
     monkeypatch.setattr(_drawing, "_busy_cores", lambda: 0.2)
     monkeypatch.setattr(os, "sched_getaffinity", lambda pid: {0})
     assert not fork_helps(7)  # one core
+    monkeypatch.setattr(os, "sched_getaffinity", lambda pid: {0, 1})
+    assert fork_helps(7) is True  # the conditions met again
+    monkeypatch.setattr(threading, "active_count", lambda: 2)
+    assert not fork_helps(7)  # another thread runs: no fork
+    monkeypatch.setattr(threading, "active_count", real_count)
     stop = threading.Event()
     other = threading.Thread(target=stop.wait)
     other.start()
     try:
-        monkeypatch.setattr(os, "sched_getaffinity", lambda pid: {0, 1})
-        assert not fork_helps(7)  # another thread runs: no fork
+        assert not fork_helps(7)  # a real one, counted by threading itself
     finally:
         stop.set()
         other.join()
@@ -370,3 +378,39 @@ def test_a_fork_stopped_while_writing_leaves_no_temporary_file(tmp_path, forks):
     finally:
         _end(forks)
     assert not temporary.exists() and other.exists()
+
+
+def test_figures_made_already_are_saved_as_their_makers_would_save_them(tmp_path):
+    # the comparison's figures exist before they are saved: the same files and bytes as the makers
+    from phasegauge.report._drawing import save_figures
+
+    one, two = tmp_path / "one", tmp_path / "two"
+    one.mkdir()
+    two.mkdir()
+    written_one, written_two = [], []
+    made = save_figures(str(one), [(stem, caption, make()) for stem, caption, make in _makers(3)], written_one)
+    drawn = save_figure_makers(str(two), _makers(3), written_two, fork=False)
+    assert written_one == written_two == ["plot_0.png", "plot_1.png", "plot_2.png"]
+    assert made == drawn
+    assert all((one / name).read_bytes() == (two / name).read_bytes() == png
+               for name, (_, png) in zip(written_one, made))
+
+
+def test_temporaries_of_named_files_or_of_every_file_are_removed(tmp_path):
+    # one clean-up for a stopped fork's files (by name, in the folder itself) and a killed run's (all)
+    from phasegauge.report._files import PREVIOUS_RUN, TEMP_PREFIX, remove_temporaries
+
+    (tmp_path / ".cache").mkdir()
+    (tmp_path / PREVIOUS_RUN).mkdir()
+    files = {key: tmp_path / f"{TEMP_PREFIX}0123456789ab{name}.part" for key, name in
+             (("fork", "plot_1.png"), ("mine", "plot_2.png"))}
+    files["cached"] = tmp_path / ".cache" / f"{TEMP_PREFIX}0123456789abplot_1.png.part"
+    files["previous"] = tmp_path / PREVIOUS_RUN / f"{TEMP_PREFIX}0123456789abplot_1.png.part"
+    for path in files.values():
+        path.write_bytes(b"half")
+    remove_temporaries(str(tmp_path), [])
+    assert all(path.exists() for path in files.values())
+    remove_temporaries(str(tmp_path), ["plot_1.png"])
+    assert [key for key, path in files.items() if not path.exists()] == ["fork"]
+    remove_temporaries(str(tmp_path))
+    assert [key for key, path in files.items() if path.exists()] == ["previous"]

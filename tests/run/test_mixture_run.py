@@ -211,3 +211,19 @@ def test_mixture_numbers_take_the_shared_finite_number_check(value, message):
     with pytest.raises(OptionError, match=message) as info:
         MeasureOptions(field="x", model=RegularSolutionModel(A_a=3.0), temperature=value)
     assert info.value.fix == "give it in K, for example 298.15"
+
+
+def test_bulk_compositions_of_a_slab_measured_periodic(tmp_path, monkeypatch):
+    # the slab's lean side wraps the x boundary: its cells' distance to the interface measured across it
+    # (the slab is symmetric about x = 1/2, so the bulk is the same cells) [the built values, as above]
+    from phasegauge.analysis import thermo
+
+    asked, distance = [], thermo.interface_distance
+    monkeypatch.setattr(thermo, "interface_distance", lambda *a, **k: asked.append(k["periodic"]) or distance(*a, **k))
+    truth = [(0.10, 0.90), (LEAN, RICH)]
+    res = measure(_slab_series(tmp_path, truth), "x", model=RegularSolutionModel(A_a=3.0), temperature=300.0,
+                  analyses=("interface", "conservation"), periodic=("x",))
+    for k, (lean, rich) in enumerate(truth):
+        assert res.steps["bulk_composition_lean"].iat[k] == pytest.approx(lean, abs=2e-3)
+        assert res.steps["bulk_composition_rich"].iat[k] == pytest.approx(rich, abs=2e-3)
+    assert asked == [("x",)] * len(truth)

@@ -5,6 +5,7 @@ from __future__ import annotations
 import numpy as np
 
 from ..errors import OptionError
+from ..model._faces import FACE_NEIGHBOURS, SPLIT_FACES
 from ..model.fields import field_location, vector_values
 from ..model.mesh import Mesh
 from ._sums import dot
@@ -78,7 +79,22 @@ def _velocity_vectors(mesh: Mesh, velocity, location) -> tuple[np.ndarray, str]:
 
 
 def _neighbour_slots(mesh: Mesh, owners: np.ndarray):
-    """Face neighbours of each owner cell, one slot at a time: yields (has, neighbour) per slot."""
+    """Face neighbours of each owner cell, one slot at a time: yields (has, neighbour) per slot.
+
+    The neighbours of higher number first, then the lower, each increasing. Where the mesh keeps
+    its face pairs as a neighbour table in that order (a reader's split, or the droplet labelling's
+    table, :func:`phasegauge.model._faces.pairs_as_neighbours`), the owners' rows are read from it:
+    :attr:`Mesh.face_pairs` would rebuild every pair from it on each read.
+    """
+    table = mesh.memo(SPLIT_FACES, lambda: None, keep=False)
+    if table is None:
+        table = mesh.memo(FACE_NEIGHBOURS, lambda: None, keep=False)
+    if table is not None:
+        rows = table[owners]
+        for k in range(int(np.count_nonzero(rows >= 0, axis=1).max(initial=0))):
+            has = rows[:, k] >= 0
+            yield has, np.where(has, rows[:, k], owners)
+        return
     pairs = mesh.face_pairs
     src = np.concatenate([pairs[:, 0], pairs[:, 1]])
     dst = np.concatenate([pairs[:, 1], pairs[:, 0]])

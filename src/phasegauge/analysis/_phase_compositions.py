@@ -18,9 +18,12 @@ import numpy as np
 
 from ..errors import OptionError
 from ..model._statistics import weighted_quantile
+from ..model.axes import AXIS_INDEX
+from ..model.contour import Contour
 from ..model.corners import corner_mean
 from ..model.mixture_models import DoubleWellModel
 from ._binodal import _stability, binodal, spinodal
+from ._labelling import _normalize_periodic
 from ._signed_distance import _ContourGeometry, _maybe_near_cells, _signed_distance
 from ._sums import dot
 
@@ -41,11 +44,13 @@ def _cell_arrays(mesh, composition, distance):
     return values, dist, weights
 
 
-def interface_distance(mesh, c_cell, contour, *, level=0.5, reach=np.inf, measured=None):
+def interface_distance(mesh, c_cell, contour, *, level=0.5, reach=np.inf, measured=None, periodic=()):
     """Signed distance of every cell centroid to the interface contour, positive where c > level.
 
     Cells farther than ``reach`` get ``+-2 reach`` (by their side; +-inf without a contour),
     which is all the bulk selection of :func:`bulk_compositions` needs and spares the search.
+    Along ``periodic`` axes the distance wraps the boundary: the contour's copies a period away
+    (those within ``reach`` of the mesh) are searched too.
 
     Parameters
     ----------
@@ -56,6 +61,8 @@ def interface_distance(mesh, c_cell, contour, *, level=0.5, reach=np.inf, measur
         The interface at ``level`` (from :func:`phasegauge.analysis.interface.find_interface`).
     level : float
     reach : float, in mesh length units
+    periodic : sequence of {'x', 'y', 'z'}
+        Axes along which the mesh is periodic (its extent along the axis is the period).
     measured : MeasuredDistances, optional
         The point distances the width estimators measured on this mesh and contour
         (``interface_metrics(..., return_distances=True)``). A cell whose corners were all
@@ -88,6 +95,9 @@ def interface_distance(mesh, c_cell, contour, *, level=0.5, reach=np.inf, measur
     if contour is None or contour.n_elements == 0:
         return np.where(positive, np.inf, -np.inf)
     reach = float(reach)
+    wrapped = _periodic_images(mesh, contour, periodic, reach)
+    if wrapped is not contour:  # the width estimators' distances did not wrap: searched here
+        contour, measured = wrapped, None
     geometry = measured.geometry if measured is not None and measured.geometry.contour is contour else None
     geometry = _ContourGeometry(contour) if geometry is None else geometry
     points = np.asarray(mesh.cell_centroids, dtype=float)
@@ -126,6 +136,40 @@ def interface_distance(mesh, c_cell, contour, *, level=0.5, reach=np.inf, measur
     np.copyto(dist, 2.0 * reach, where=~np.isfinite(dist))
     np.negative(dist, out=dist, where=~positive)
     return dist
+
+
+def _periodic_images(mesh, contour, periodic, reach: float):
+    """``contour`` with its copies shifted by a period along the ``periodic`` axes (each shift and
+    their combinations) that come within ``reach`` of the mesh's bounds; ``contour`` itself when
+    there are none."""
+    names, _ = _normalize_periodic(mesh, periodic)
+    if not names:
+        return contour
+    bounds = mesh.bounds
+    shifts = [np.zeros(3)]
+    for name in names:
+        axis = AXIS_INDEX[name]
+        period = np.zeros(3)
+        period[axis] = bounds[1, axis] - bounds[0, axis]
+        shifts = [shift + k * period for shift in shifts for k in (0, -1, 1)]
+    corners = contour.points[contour.elements]  # (k, corners, 3)
+    low, high = corners.min(axis=1), corners.max(axis=1)
+    points, elements, cells, count = [contour.points], [contour.elements], [contour.cells], len(contour.points)
+    for shift in shifts[1:]:
+        near = np.flatnonzero(np.all((high + shift >= bounds[0] - reach) & (low + shift <= bounds[1] + reach), axis=1))
+        if near.size == 0:
+            continue
+        used = np.unique(contour.elements[near])
+        number = np.empty(len(contour.points), dtype=np.int64)
+        number[used] = count + np.arange(used.size)
+        points.append(contour.points[used] + shift)
+        elements.append(number[contour.elements[near]])
+        cells.append(contour.cells[near])
+        count += used.size
+    if len(points) == 1:
+        return contour
+    return Contour(np.concatenate(points), np.concatenate(elements), np.concatenate(cells), contour.dimension,
+                   contour.plane_axes)
 
 
 def _any_corner(mesh, flags, cells):

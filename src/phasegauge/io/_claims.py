@@ -13,6 +13,7 @@ from __future__ import annotations
 
 import os
 import re
+from stat import S_ISREG
 from types import MappingProxyType
 
 from ..errors import UnreadableFileError
@@ -127,10 +128,13 @@ class CheckedFiles:
 
     @staticmethod
     def key(name: str):
-        """``(absolute path, size, modification time in ns)`` of ``name``, or None when it cannot be looked at."""
+        """``(absolute path, size, modification time in ns)`` of ``name``, or None when it cannot be
+        looked at or is no regular file (one ``os.stat``)."""
         try:
             stat = os.stat(name)
         except OSError:
+            return None
+        if not S_ISREG(stat.st_mode):
             return None
         return os.path.abspath(name), stat.st_size, stat.st_mtime_ns
 
@@ -153,10 +157,10 @@ def check_hdf5_claims(xdmf_path: str, files: list, *, checked: CheckedFiles | No
     opened again, and a file that passes is added to it.
     """
     for name in files:
-        key = None if checked is None else CheckedFiles.key(name)
-        if key is not None and key in checked:
+        key = CheckedFiles.key(name)  # the file is looked at once: None where it is no regular file
+        if key is None or (checked is not None and key in checked):
             continue
-        if os.path.isfile(name) and _check_hdf5_file(xdmf_path, name) and checked is not None:
+        if _check_hdf5_file(xdmf_path, name) and checked is not None:
             checked.add(key)
 
 

@@ -39,7 +39,7 @@ from ._formats import (TIME_NEEDS_FULL_READ, check_readable, format_for, peek_ti
 from ._mesh_pool import MeshPool
 from ._meshio_adapter import StepFields, XdmfTimeSeries, mesh_and_fields
 from ._claims import CheckedFiles, check_hdf5_claims
-from ._series_gaps import first_three, warn_series_gaps
+from ._series_gaps import _number_of, first_three, warn_series_gaps
 from ._xdmf import grid_time, temporal_grids, xdmf_data_files
 
 __all__ = ["Series", "StepInfo", "Step", "open_series", "natural_key", "read_listing",
@@ -138,9 +138,14 @@ def folder_listing(folder: str, files: list):
 
 
 def _warn_unlisted(files: list, listing: str, rows: list) -> None:
-    """Warn (:class:`SeriesWarning`, one line) of the folder's mesh files its listing does not name."""
+    """Warn (:class:`SeriesWarning`, one line) of the folder's mesh files its listing does not name
+    that are named as its steps are: the same text around the last number (``out_7.vtu`` beside a
+    listed ``out_6.vtu``). Other files beside the steps (a solver's boundary patches,
+    ``wall_0000.vtu``) are no missing steps and are passed over."""
     named = {os.path.abspath(f) for _, f in rows}
-    left = [os.path.basename(f) for f in files if os.path.abspath(f) not in named]
+    patterns = {numbered[0] for numbered in map(_number_of, named) if numbered is not None}
+    left = [os.path.basename(f) for f in files
+            if os.path.abspath(f) not in named and (_number_of(f) or (None,))[0] in patterns]
     if left:
         n = len(left)
         shown = first_three(left)

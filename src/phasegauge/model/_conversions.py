@@ -16,7 +16,7 @@ import numpy as np
 if TYPE_CHECKING:
     from .mesh import Mesh
 
-__all__ = ["corner_sums", "point_stencil", "point_fit", "PointFit", "linear_point_values"]
+__all__ = ["corner_sums", "point_stencil", "point_fit", "good_cells_fit", "PointFit", "linear_point_values"]
 
 #: cells per chunk of :func:`corner_sums` (the chunk's sums stay in cache: 1 << 15 took 1.5x the
 #: time on 1M hexahedra)
@@ -61,11 +61,12 @@ def point_stencil(mesh: Mesh):
 
 
 class PointFit(NamedTuple):
-    """The least-squares point fit through every cell around each point, as one weight per pair.
+    """The least-squares point fit through the (good) cells around each point, as one weight per pair.
 
-    With every cell good the fit's matrix depends on the mesh only, so the fitted value of point
-    p is ``sum coef[j] * value[cols[j]]`` over its pairs j: ``coef`` is the pair's inverse-distance
-    weight times its basis row dotted with the first column of the point's inverse matrix.
+    The fit's matrix depends on the mesh and on which cells are good only, so the fitted value of
+    point p is ``sum coef[j] * value[cols[j]]`` over its pairs j: ``coef`` is the pair's
+    inverse-distance weight times its basis row dotted with the first column of the point's
+    inverse matrix.
     """
 
     cols: np.ndarray    # cell of each (point, cell) pair, grouped by point
@@ -73,14 +74,6 @@ class PointFit(NamedTuple):
     points: np.ndarray  # those points
     coef: np.ndarray    # weight of each pair's cell value in its point's fit (0 where not posed)
     posed: np.ndarray   # per point of ``points``: the fit is well posed
-
-
-def _normal_matrix(rows, basis, wk, n, d):
-    A = np.empty((n, d + 1, d + 1))
-    for i in range(d + 1):
-        for j in range(i, d + 1):
-            A[:, i, j] = A[:, j, i] = np.bincount(rows, weights=wk * basis[:, i] * basis[:, j], minlength=n)
-    return A
 
 
 def _well_posed(A, count, d):
@@ -95,82 +88,74 @@ def _stencil(mesh: Mesh, keep: bool = True):
     return mesh.memo("point_stencil", lambda: point_stencil(mesh), keep=keep)
 
 
+def _fit_of(rows, cols, dx, w, indptr, d: int, n: int) -> PointFit:
+    """The :class:`PointFit` of the (point, cell) pairs of a stencil (grouped by point, ``indptr``)."""
+    nonempty = np.flatnonzero(np.diff(indptr) > 0)
+    starts = indptr[:-1][nonempty]
+    offsets = np.ascontiguousarray(dx.T)  # the basis is (1, dx): its first column is not formed
+    del dx
+    # the normal matrices, summed over each point's run of pairs (the pairs are grouped by point)
+    A = np.zeros((n, d + 1, d + 1))
+    for i in range(d + 1):
+        for j in range(i, d + 1):
+            weight = w if j == 0 else w * offsets[j - 1] if i == 0 else w * offsets[i - 1] * offsets[j - 1]
+            A[nonempty, i, j] = A[nonempty, j, i] = np.add.reduceat(weight, starts)
+    posed = _well_posed(A, np.diff(indptr), d)
+    first = np.zeros((d + 1, n))  # first column of the inverse of each posed matrix, by component
+    if posed.any():
+        e0 = np.zeros((int(posed.sum()), d + 1, 1))
+        e0[:, 0, 0] = 1.0
+        first[:, posed] = np.linalg.solve(A[posed], e0)[:, :, 0].T
+    del A
+    coef = first[0][rows]
+    for i in range(d):
+        coef += offsets[i] * first[i + 1][rows]
+    coef *= w
+    return PointFit(cols, starts, nonempty, coef, posed[nonempty])
+
+
 def point_fit(mesh: Mesh) -> PointFit:
     """The :class:`PointFit` of ``mesh`` with every cell good (built once per mesh; the stencil
     it is made from is not kept)."""
+    return mesh.memo("point_fit", lambda: _fit_of(*_stencil(mesh, keep=False), mesh.dimension, mesh.n_points))
 
-    def compute():
-        rows, cols, dx, w, indptr = _stencil(mesh, keep=False)
-        d, n = mesh.dimension, mesh.n_points
-        nonempty = np.flatnonzero(np.diff(indptr) > 0)
-        starts = indptr[:-1][nonempty]
-        offsets = np.ascontiguousarray(dx.T)  # the basis is (1, dx): its first column is not formed
-        del dx
-        # the normal matrices, summed over each point's run of pairs (the pairs are grouped by point)
-        A = np.zeros((n, d + 1, d + 1))
-        for i in range(d + 1):
-            for j in range(i, d + 1):
-                weight = w if j == 0 else w * offsets[j - 1] if i == 0 else w * offsets[i - 1] * offsets[j - 1]
-                A[nonempty, i, j] = A[nonempty, j, i] = np.add.reduceat(weight, starts)
-        posed = _well_posed(A, np.diff(indptr), d)
-        first = np.zeros((d + 1, n))  # first column of the inverse of each posed matrix, by component
-        if posed.any():
-            e0 = np.zeros((int(posed.sum()), d + 1, 1))
-            e0[:, 0, 0] = 1.0
-            first[:, posed] = np.linalg.solve(A[posed], e0)[:, :, 0].T
-        del A
-        coef = first[0][rows]
-        for i in range(d):
-            coef += offsets[i] * first[i + 1][rows]
-        coef *= w
-        return PointFit(cols, starts, nonempty, coef, posed[nonempty])
 
-    return mesh.memo("point_fit", compute)
+def good_cells_fit(mesh: Mesh, good: np.ndarray) -> PointFit:
+    """The :class:`PointFit` of ``mesh`` through its ``good`` cells only (the others left out of each
+    point's fit, its count and its range): built when the pattern of good cells is new, kept for
+    the next step with the same pattern (a series whose NaN cells stay where they are).
+
+    The last pattern is kept, on the mesh (``mesh.memo``), packed a bit a cell, with its fit: 16
+    bytes a (point, good cell) pair, as :func:`point_fit`. The stencil it is built from (48 bytes a
+    pair) is kept only once the pattern has changed (NaN cells that move from step to step).
+    """
+    kept = mesh.memo("point_fit_of_good_cells", dict)  # {'last': (packed pattern, PointFit)}
+    packed = np.packbits(good)
+    last = kept.get("last")  # one read: another thread may replace it meanwhile
+    if last is not None and np.array_equal(last[0], packed):
+        return last[1]
+    moved = last is not None  # the pattern moved: the stencil is kept for the next move
+    kept.pop("last", None)  # the earlier pattern's fit goes before the new one is built
+    rows, cols, dx, w, indptr = _stencil(mesh, keep=moved)
+    ok = good[cols]
+    rows = rows[ok]
+    counts = np.bincount(rows, minlength=mesh.n_points)
+    indptr = np.zeros(mesh.n_points + 1, dtype=indptr.dtype)
+    np.cumsum(counts, out=indptr[1:])
+    fit = _fit_of(rows, cols[ok], dx[ok], w[ok], indptr, mesh.dimension, mesh.n_points)
+    kept["last"] = (packed, fit)
+    return fit
 
 
 def linear_point_values(mesh: Mesh, flat: np.ndarray, good: np.ndarray, fallback: np.ndarray) -> np.ndarray:
     """Point values of the least-squares linear fit through the good cells around each point, kept in
     their range; ``fallback`` where the fit is ill-posed."""
-    if good.all():
-        return _fit_all_good(point_fit(mesh), flat, fallback)
-    return _fit_some_good(mesh, flat, good, fallback)
-
-
-def _fit_some_good(mesh: Mesh, flat: np.ndarray, good: np.ndarray, fallback: np.ndarray) -> np.ndarray:
-    """:func:`linear_point_values` with the bad cells left out of each point's fit."""
-    rows, cols, dx, w, indptr = _stencil(mesh)
-    d = mesh.dimension
-    ok = good[cols]
-    wk = np.where(ok, w, 0.0)
-    basis = np.concatenate([np.ones((len(rows), 1)), dx], axis=1)  # (m, d+1)
-    n = mesh.n_points
-    A = _normal_matrix(rows, basis, wk, n, d)
-    k = flat.shape[1]
-    vals = np.where(ok[:, None], flat[cols], 0.0)
-    B = np.empty((n, d + 1, k))
-    for i in range(d + 1):
-        for c in range(k):
-            B[:, i, c] = np.bincount(rows, weights=wk * basis[:, i] * vals[:, c], minlength=n)
-    count = np.bincount(rows, weights=ok.astype(np.float64), minlength=n)
-    posed = _well_posed(A, count, d)
-    out = fallback.copy()
-    if posed.any():
-        sol = np.linalg.solve(A[posed], B[posed])[:, 0, :]
-        # keep within the range of the cells around the point (no new extremes)
-        hi = np.where(ok[:, None], flat[cols], -np.inf)
-        lo = np.where(ok[:, None], flat[cols], np.inf)
-        starts = indptr[:-1]
-        nonempty = np.diff(indptr) > 0
-        vmax = np.full((n, k), -np.inf)
-        vmin = np.full((n, k), np.inf)
-        vmax[nonempty] = np.maximum.reduceat(hi, starts[nonempty], axis=0)
-        vmin[nonempty] = np.minimum.reduceat(lo, starts[nonempty], axis=0)
-        out[posed] = np.clip(sol, vmin[posed], vmax[posed])
-    return out
+    fit = point_fit(mesh) if good.all() else good_cells_fit(mesh, good)
+    return _fit_all_good(fit, flat, fallback)
 
 
 def _fit_all_good(fit: PointFit, flat: np.ndarray, fallback: np.ndarray) -> np.ndarray:
-    """:func:`linear_point_values` with every cell good, on the mesh's :class:`PointFit`."""
+    """:func:`linear_point_values` on a :class:`PointFit` (whose cells are all good)."""
     out = fallback.copy()
     if not fit.posed.any():
         return out

@@ -8,7 +8,8 @@ import time
 
 from ._files import RUN_MARKER, atomic_write_csv, atomic_write_json, atomic_write_text
 from ._html import Page
-from ._measure_report import CAUTION, manifest, save_figures
+from ._drawing import save_figures
+from ._measure_report import CAUTION, manifest
 
 __all__ = ["write_compare_report", "compare_figures"]
 

@@ -21,9 +21,9 @@ import sys
 from types import MappingProxyType
 
 from ..errors import AnalysisError, short_text
-from ._files import TEMP_PREFIX, atomic_save_figure
+from ._files import atomic_save_figure, remove_temporaries
 
-__all__ = ["save_figure_makers", "fork_helps"]
+__all__ = ["save_figure_makers", "save_figures", "fork_helps"]
 
 #: how much each figure costs to make, lay out and draw, relative to a one-axes time plot (others: 1);
 #: the snapshots from ``benchmarks/bench_report.py --figures`` (RESULTS.md, "Ninth round: the report
@@ -115,6 +115,16 @@ def save_figure_makers(out: str, makers, written: list, plot_format: str = "png"
     return [(caption, png) for (_stem, caption, _make), png in zip(makers, pngs)]
 
 
+def save_figures(out: str, figures, written: list, plot_format: str = "png") -> list:
+    """Save each (file stem, caption, Figure) made already as ``out/<stem>.<plot_format>``, in this process.
+
+    :func:`save_figure_makers` of figures that exist (a comparison's): the same files, the names
+    appended to ``written`` and the (caption, PNG bytes) pairs returned.
+    """
+    makers = [(stem, caption, lambda figure=figure: figure) for stem, caption, figure in figures]
+    return save_figure_makers(out, makers, written, plot_format, fork=False)
+
+
 def _their_share(makers) -> list:
     """The indices of the figures the fork draws: about half the total weight, the costliest first."""
     order = sorted(range(len(makers)), key=lambda i: -_WEIGHTS.get(makers[i][0], 1.0))
@@ -197,7 +207,7 @@ def _draw_split(out: str, makers, theirs: list, plot_format: str, pngs: list) ->
             pass
         if freeze:
             gc.unfreeze()
-        _remove_temporaries(out, [f"{makers[i][0]}.{plot_format}" for i in theirs if i not in (received or {})])
+        remove_temporaries(out, [f"{makers[i][0]}.{plot_format}" for i in theirs if i not in (received or {})])
     for index, (kind, value) in (received or {}).items():
         if kind == "error":
             raise _raised(value, makers[index][0])
@@ -222,24 +232,6 @@ def _draw_all(out: str, makers, indices: list, plot_format: str) -> dict:
             done[index] = ("error", record)
             break
     return done
-
-
-def _remove_temporaries(out: str, names: list) -> None:
-    """Remove the temporary files of ``names`` that a fork stopped (or dead) while writing them left in ``out``."""
-    if not names:
-        return
-    import re
-
-    pattern = re.compile(f"{re.escape(TEMP_PREFIX)}[0-9a-f]{{12}}({'|'.join(map(re.escape, names))})\\.part")
-    try:
-        found = [name for name in os.listdir(out) if pattern.fullmatch(name)]
-    except OSError:
-        return
-    for name in found:
-        try:
-            os.remove(os.path.join(out, name))
-        except OSError:
-            pass
 
 
 def _send(fd: int, done: dict) -> None:

@@ -21,7 +21,7 @@ from ..errors import OutputError
 
 __all__ = ["atomic_write_bytes", "atomic_write_text", "atomic_write_csv", "atomic_write_json",
            "atomic_save_figure", "encode_png", "prepare_output_folder", "output_transaction", "RUN_MARKER",
-           "PREVIOUS_RUN", "TEMP_PREFIX"]
+           "PREVIOUS_RUN", "TEMP_PREFIX", "remove_temporaries"]
 
 #: file inside an output folder that says a phasegauge run owns it
 RUN_MARKER = ".phasegauge-run.json"
@@ -31,6 +31,9 @@ PREVIOUS_RUN = ".previous-run"
 
 #: prefix of the temporary files of atomic writes
 TEMP_PREFIX = ".tmp-"
+
+#: random bytes in a temporary file's name (after the prefix, as hex), before the file's own name
+_TEMP_TOKEN_BYTES = 6
 
 _ACTIVE = contextvars.ContextVar("phasegauge_output_transaction", default=None)
 
@@ -43,7 +46,7 @@ def atomic_write_bytes(path, data: bytes) -> None:
         os.makedirs(folder, exist_ok=True)
         # the temporary name ends in '.part', so a listing of '*.pkl' or '*.vtu' never takes it for output
         # created with mode 0666 less the umask, as any new file (mkstemp would give 0600)
-        tmp = os.path.join(folder, f"{TEMP_PREFIX}{secrets.token_hex(6)}{os.path.basename(path)}.part")
+        tmp = os.path.join(folder, f"{TEMP_PREFIX}{secrets.token_hex(_TEMP_TOKEN_BYTES)}{os.path.basename(path)}.part")
         fd = os.open(tmp, os.O_WRONLY | os.O_CREAT | os.O_EXCL, 0o666)
     except OSError as exc:
         raise OutputError(f"cannot write here ({exc.strerror or exc})", where=path,
@@ -256,7 +259,7 @@ def prepare_output_folder(out, *, overwrite: bool = False, resume: bool = False,
             if run_key and previous.get("run_key") != run_key:
                 raise OutputError("was made from other inputs or options, so it cannot be resumed", where=out,
                                   fix="rerun with the same inputs and options, or use --overwrite")
-            _remove_temporaries(out)
+            remove_temporaries(out)
             if txn is not None:
                 txn.mode = "resume"
             return "resume"
@@ -382,12 +385,22 @@ def _remove(path: str) -> None:
         os.remove(path)
 
 
-def _remove_temporaries(out: str) -> None:
-    """Remove the temporary files of atomic writes that a killed run left behind."""
+def remove_temporaries(out: str, names: list | None = None) -> None:
+    """Remove the temporary files of atomic writes left in ``out``.
+
+    Without ``names``, every one in the folder and its subfolders (but the earlier run's, kept
+    aside while ``--overwrite`` runs): those a killed run left behind. With ``names``, only those
+    of the files ``names`` (base names) in ``out`` itself: those a drawing fork stopped (or dead)
+    while writing them left. A file that is gone already, or a folder that cannot be read, is passed over.
+    """
+    if names is not None and not names:
+        return
+    wanted = None if names is None else {f"{name}.part" for name in names}
+    start = len(TEMP_PREFIX) + 2 * _TEMP_TOKEN_BYTES  # the prefix and the random token (hex)
     for folder, dirs, files in os.walk(out):
-        dirs[:] = [d for d in dirs if d != PREVIOUS_RUN]
+        dirs[:] = [] if wanted is not None else [d for d in dirs if d != PREVIOUS_RUN]
         for name in files:
-            if name.startswith(TEMP_PREFIX):
+            if name.startswith(TEMP_PREFIX) and (wanted is None or name[start:] in wanted):
                 try:
                     os.remove(os.path.join(folder, name))
                 except OSError:

@@ -10,26 +10,13 @@ import numpy as np
 
 from . import _plots
 from ._drawing import save_figure_makers
-from ._files import RUN_MARKER, atomic_save_figure, atomic_write_csv, atomic_write_json, atomic_write_text
+from ._files import RUN_MARKER, atomic_write_csv, atomic_write_json, atomic_write_text
 from ._html import Page
 
-__all__ = ["write_measure_report", "measure_figures", "save_figures", "manifest"]
+__all__ = ["write_measure_report", "measure_figures", "manifest"]
 
 CAUTION = ("These figures describe the simulation, not the physical process. Design decisions rest on "
            "validated models, experiments and licensed engineering judgement under local codes.")
-
-
-def save_figures(out: str, figures, written: list, plot_format: str = "png") -> list:
-    """Save each (file stem, caption, Figure) as ``out/<stem>.<plot_format>``; return (caption, PNG bytes) pairs.
-
-    The names of the files are appended to ``written``.
-    """
-    pngs = []
-    for stem, caption, fig in figures:
-        name = f"{stem}.{plot_format}"
-        pngs.append((caption, atomic_save_figure(os.path.join(out, name), fig)))
-        written.append(name)
-    return pngs
 
 
 def manifest(command: str, *, version: str, inputs: list, fields: dict, outputs: list, timings: dict) -> dict:

@@ -161,7 +161,7 @@ def mixture_step(step, mesh, ind, contour, metrics: dict, options, droplets=None
     if contour is not None and contour.n_elements and np.isfinite(width) and width > 0:
         reach = options.bulk_widths * width
         distance = thermo.interface_distance(mesh, ind.cell, contour, level=options.level, reach=reach,
-                                             measured=measured)
+                                             measured=measured, periodic=tuple(options.periodic))
         found = thermo.bulk_compositions(mesh, x, distance, width=width, multiple=options.bulk_widths)
         bulk = {k: found[k] for k in bulk}
     out.update(bulk)
