@@ -93,3 +93,23 @@ def test_patch_files_beside_listed_steps_are_no_missing_steps(tmp_path):
     with warnings.catch_warnings():
         warnings.simplefilter("error")  # every step listed: the patch files beside them warn of nothing
         Series(str(folder))
+
+
+def test_steps_named_by_time_left_out_of_the_listing_are_named(tmp_path):
+    # regression: steps named by their time (c_0.500.vtu, c_1.250.vtu; sol_1.500e-01.vtu) differ in more than
+    # their last number; one left out of the listing was passed over as if it were a patch file
+    import warnings
+
+    for stem, times in (("c_{:.3f}.vtu", (0.5, 1.25, 2.0)), ("sol_{:.3e}.vtu", (0.15, 2.5, 35.0))):
+        folder = tmp_path / stem[:3]
+        folder.mkdir()
+        mesh = grid_mesh((3, 3))
+        names = [stem.format(t) for t in times]
+        for name in names:
+            to_meshio(mesh, point_data={"c": np.full(mesh.n_points, 0.5)}).write(str(folder / name))
+        (folder / "times.csv").write_text(f"time,path\n{times[0]},{names[0]}\n{times[2]},{names[2]}\n")
+        with warnings.catch_warnings(record=True) as caught:
+            warnings.simplefilter("always")
+            Series(str(folder))
+        texts = [str(w.message) for w in caught if "listing" in str(w.message)]
+        assert len(texts) == 1 and f"({names[1]})" in texts[0], texts

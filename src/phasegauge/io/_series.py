@@ -39,7 +39,7 @@ from ._formats import (TIME_NEEDS_FULL_READ, check_readable, format_for, peek_ti
 from ._mesh_pool import MeshPool
 from ._meshio_adapter import StepFields, XdmfTimeSeries, mesh_and_fields
 from ._claims import CheckedFiles, check_hdf5_claims
-from ._series_gaps import _number_of, first_three, warn_series_gaps
+from ._series_gaps import first_three, warn_series_gaps
 from ._xdmf import grid_time, temporal_grids, xdmf_data_files
 
 __all__ = ["Series", "StepInfo", "Step", "open_series", "natural_key", "read_listing",
@@ -137,15 +137,22 @@ def folder_listing(folder: str, files: list):
     return None
 
 
+def _digits_masked(path: str) -> str:
+    """A file's name with every run of digits replaced by ``#`` (steps named by number or time alike)."""
+    return re.sub(r"\d+", "#", os.path.basename(path))
+
+
 def _warn_unlisted(files: list, listing: str, rows: list) -> None:
     """Warn (:class:`SeriesWarning`, one line) of the folder's mesh files its listing does not name
-    that are named as its steps are: the same text around the last number (``out_7.vtu`` beside a
-    listed ``out_6.vtu``). Other files beside the steps (a solver's boundary patches,
+    that are named as its steps are: the same text around every number (``out_7.vtu`` beside a
+    listed ``out_6.vtu``, ``c_0.75.vtu`` beside ``c_0.125.vtu``; every unlisted file where no
+    listed name holds a number). Other files beside the steps (a solver's boundary patches,
     ``wall_0000.vtu``) are no missing steps and are passed over."""
     named = {os.path.abspath(f) for _, f in rows}
-    patterns = {numbered[0] for numbered in map(_number_of, named) if numbered is not None}
+    patterns = {_digits_masked(f) for f in named}
+    numbered = any("#" in p for p in patterns)
     left = [os.path.basename(f) for f in files
-            if os.path.abspath(f) not in named and (_number_of(f) or (None,))[0] in patterns]
+            if os.path.abspath(f) not in named and (not numbered or _digits_masked(f) in patterns)]
     if left:
         n = len(left)
         shown = first_three(left)
