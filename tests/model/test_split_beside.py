@@ -74,7 +74,7 @@ def test_a_mesh_without_face_centres_is_returned_as_it_is():
 def test_quad_faces_are_grouped_as_numpy_groups_them(high):
     # the split's face grouping by packed sorts against numpy's np.unique(axis=0) [lib]: the same
     # rows in the same order and the same row numbers (the new face centres are numbered in it)
-    from phasegauge.model.convex_cells import _unique_rows
+    from phasegauge.model._grouping import unique_rows as _unique_rows
 
     rng = np.random.default_rng(high % 97)
     rows = rng.integers(0, high, size=(400, 4))
@@ -84,3 +84,5 @@ def test_quad_faces_are_grouped_as_numpy_groups_them(high):
     np.testing.assert_array_equal(unique, expected)
     np.testing.assert_array_equal(inverse, expected_inverse.ravel())
     assert _unique_rows(rows[:0])[0].shape == (0, 4)
+    one, where = _unique_rows(rows[:1].repeat(3, axis=0))  # one group: every row number 0
+    assert one.shape == (1, 4) and not where.any()

@@ -5,7 +5,7 @@ from __future__ import annotations
 import numpy as np
 
 from ..errors import OptionError
-from ..model._faces import FACE_NEIGHBOURS, SPLIT_FACES
+from ..model._faces import kept_neighbours
 from ..model.fields import field_location, vector_values
 from ..model.mesh import Mesh
 from ._sums import dot
@@ -86,9 +86,7 @@ def _neighbour_slots(mesh: Mesh, owners: np.ndarray):
     table, :func:`phasegauge.model._faces.pairs_as_neighbours`), the owners' rows are read from it:
     :attr:`Mesh.face_pairs` would rebuild every pair from it on each read.
     """
-    table = mesh.memo(SPLIT_FACES, lambda: None, keep=False)
-    if table is None:
-        table = mesh.memo(FACE_NEIGHBOURS, lambda: None, keep=False)
+    table = kept_neighbours(mesh)
     if table is not None:
         rows = table[owners]
         for k in range(int(np.count_nonzero(rows >= 0, axis=1).max(initial=0))):

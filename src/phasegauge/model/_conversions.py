@@ -151,11 +151,11 @@ def linear_point_values(mesh: Mesh, flat: np.ndarray, good: np.ndarray, fallback
     """Point values of the least-squares linear fit through the good cells around each point, kept in
     their range; ``fallback`` where the fit is ill-posed."""
     fit = point_fit(mesh) if good.all() else good_cells_fit(mesh, good)
-    return _fit_all_good(fit, flat, fallback)
+    return _fitted_values(fit, flat, fallback)
 
 
-def _fit_all_good(fit: PointFit, flat: np.ndarray, fallback: np.ndarray) -> np.ndarray:
-    """:func:`linear_point_values` on a :class:`PointFit` (whose cells are all good)."""
+def _fitted_values(fit: PointFit, flat: np.ndarray, fallback: np.ndarray) -> np.ndarray:
+    """:func:`linear_point_values` by a :class:`PointFit` (every cell's, or the good cells')."""
     out = fallback.copy()
     if not fit.posed.any():
         return out

@@ -191,15 +191,20 @@ def pairs_as_neighbours(mesh: Mesh, neighbours: np.ndarray) -> None:
         topology["pairs"] = None
 
 
+def kept_neighbours(mesh: Mesh):
+    """The face-neighbour table the mesh keeps (a reader's split's, else one built from the face
+    pairs, :func:`pairs_as_neighbours`), or None."""
+    table = mesh.memo(SPLIT_FACES, lambda: None, keep=False)
+    return mesh.memo(FACE_NEIGHBOURS, lambda: None, keep=False) if table is None else table
+
+
 def face_pairs(mesh: Mesh) -> np.ndarray:
     """:attr:`Mesh.face_pairs`: the face topology's pairs, or read from a split's face neighbours (or
     from a neighbour table built from the pairs, :func:`pairs_as_neighbours`)."""
     pairs = mesh._face_topology["pairs"]
     if pairs is not None:
         return pairs
-    neighbours = mesh.memo(SPLIT_FACES, lambda: None, keep=False)
-    if neighbours is None:
-        neighbours = mesh.memo(FACE_NEIGHBOURS, lambda: None, keep=False)
+    neighbours = kept_neighbours(mesh)
     n = mesh.n_cells
     higher = neighbours > np.arange(n, dtype=neighbours.dtype)[:, None]
     first = np.repeat(np.arange(n, dtype=np.int32 if n < 2 ** 24 else np.int64), higher.sum(axis=1))

@@ -204,3 +204,15 @@ def group_columns(columns: list) -> tuple[np.ndarray, np.ndarray]:
     for r in ranks:
         new[1:] |= r[1:] != r[:-1]
     return order, np.flatnonzero(new)
+
+
+def unique_rows(rows: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    """The distinct rows of an integer table (n, k) in lexicographic order, and the number of each
+    row's among them: ``np.unique(rows, axis=0, return_inverse=True)``, by packed sorts
+    (:func:`group_columns`)."""
+    order, starts = group_columns([rows[:, j] for j in range(rows.shape[1])])
+    group = np.zeros(len(rows), dtype=np.int64)
+    group[starts] = 1
+    inverse = np.empty(len(rows), dtype=np.int64)
+    inverse[order] = np.cumsum(group) - 1
+    return rows[order[starts]], inverse

@@ -38,7 +38,7 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
-from ._grouping import group_columns, sort_small_rows
+from ._grouping import sort_small_rows, unique_rows
 from .cells import FACES, LINEAR_CORNERS
 
 __all__ = ["ConvexCells", "convert_convex_point_sets", "split_beside"]
@@ -383,7 +383,7 @@ def _cells_to_split(blocks: list, out: ConvexCells) -> dict | None:
         n += len(conn)
     if not keys:
         return None
-    faces, face_of = _unique_rows(np.concatenate(keys))
+    faces, face_of = unique_rows(np.concatenate(keys))
     centred = _centre_numbers(faces, out.face_centres) >= 0
     if not centred.any():
         return None
@@ -402,7 +402,7 @@ def _cone_from_centres(points: np.ndarray, kind: str, conn: np.ndarray, out: Con
     cells = np.arange(n, dtype=np.int64)
     quads = [face for face in FACES[kind] if len(face) == 4]
     F = np.concatenate([conn[:, list(face)] for face in quads])  # (q * n, 4), face after face
-    keys, inverse = _unique_rows(sort_small_rows(F))
+    keys, inverse = unique_rows(sort_small_rows(F))
     number = _centre_numbers(keys, out.face_centres)
     new = number < 0
     number[new] = base + n + np.arange(int(new.sum()))
@@ -441,20 +441,7 @@ def _centre_numbers(keys: np.ndarray, face_centres: dict) -> np.ndarray:
     if not known or len(keys) == 0:
         return number
     table = np.array(known, dtype=np.int64)
-    _, where = _unique_rows(np.vstack([table, keys]))
+    _, where = unique_rows(np.vstack([table, keys]))
     slot = np.full(int(where.max()) + 1, -1, dtype=np.int64)
     slot[where[:len(table)]] = [face_centres[key] for key in known]
     return slot[where[len(table):]]
-
-
-def _unique_rows(rows: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
-    """The distinct rows of an integer table (n, k) in lexicographic order, and the number of each
-    row's among them: ``np.unique(rows, axis=0, return_inverse=True)``, by packed sorts
-    (:func:`._grouping.group_columns`)."""
-    order, starts = group_columns([rows[:, j] for j in range(rows.shape[1])])
-    group = np.zeros(len(rows), dtype=np.int64)
-    if len(starts) > 1:
-        group[starts[1:]] = 1
-    inverse = np.empty(len(rows), dtype=np.int64)
-    inverse[order] = np.cumsum(group)
-    return rows[order[starts]], inverse
