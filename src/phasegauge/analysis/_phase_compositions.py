@@ -95,9 +95,6 @@ def interface_distance(mesh, c_cell, contour, *, level=0.5, reach=np.inf, measur
     if contour is None or contour.n_elements == 0:
         return np.where(positive, np.inf, -np.inf)
     reach = float(reach)
-    wrapped = _periodic_images(mesh, contour, periodic, reach)
-    if wrapped is not contour:  # the width estimators' distances did not wrap: searched here
-        contour, measured = wrapped, None
     geometry = measured.geometry if measured is not None and measured.geometry.contour is contour else None
     geometry = _ContourGeometry(contour) if geometry is None else geometry
     points = np.asarray(mesh.cell_centroids, dtype=float)
@@ -133,18 +130,28 @@ def interface_distance(mesh, c_cell, contour, *, level=0.5, reach=np.inf, measur
     if rows.size:
         dist[rows] = np.abs(_signed_distance(points[rows], c[rows], geometry, contour.plane_axes, level,
                                              bound=reach, compact=True))
+    copies = _periodic_images(mesh, contour, periodic, reach)
+    if copies is not None:  # across a periodic boundary: the nearer of the contour and its copies
+        copied = _ContourGeometry(copies)
+        rows = np.arange(c.size)
+        if limited:
+            rows = rows[_maybe_near_cells(mesh, rows, copied.centroids[:, list(contour.plane_axes)], reach)]
+        if rows.size:
+            across = np.abs(_signed_distance(points[rows], c[rows], copied, contour.plane_axes, level,
+                                             bound=reach, compact=True))
+            dist[rows] = np.fmin(dist[rows], across)  # NaN (not searched, or beyond reach) yields
     np.copyto(dist, 2.0 * reach, where=~np.isfinite(dist))
     np.negative(dist, out=dist, where=~positive)
     return dist
 
 
 def _periodic_images(mesh, contour, periodic, reach: float):
-    """``contour`` with its copies shifted by a period along the ``periodic`` axes (each shift and
-    their combinations) that come within ``reach`` of the mesh's bounds; ``contour`` itself when
+    """The copies of ``contour`` shifted by a period along the ``periodic`` axes (each shift and
+    their combinations) that come within ``reach`` of the mesh's bounds, as one contour; None when
     there are none."""
     names, _ = _normalize_periodic(mesh, periodic)
     if not names:
-        return contour
+        return None
     bounds = mesh.bounds
     shifts = [np.zeros(3)]
     for name in names:
@@ -154,7 +161,7 @@ def _periodic_images(mesh, contour, periodic, reach: float):
         shifts = [shift + k * period for shift in shifts for k in (0, -1, 1)]
     corners = contour.points[contour.elements]  # (k, corners, 3)
     low, high = corners.min(axis=1), corners.max(axis=1)
-    points, elements, cells, count = [contour.points], [contour.elements], [contour.cells], len(contour.points)
+    points, elements, cells, count = [], [], [], 0
     for shift in shifts[1:]:
         near = np.flatnonzero(np.all((high + shift >= bounds[0] - reach) & (low + shift <= bounds[1] + reach), axis=1))
         if near.size == 0:
@@ -166,8 +173,8 @@ def _periodic_images(mesh, contour, periodic, reach: float):
         elements.append(number[contour.elements[near]])
         cells.append(contour.cells[near])
         count += used.size
-    if len(points) == 1:
-        return contour
+    if not points:
+        return None
     return Contour(np.concatenate(points), np.concatenate(elements), np.concatenate(cells), contour.dimension,
                    contour.plane_axes)
 
