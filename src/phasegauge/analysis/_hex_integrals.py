@@ -249,26 +249,40 @@ class _HexCells:
 
     def moments(self, dist: np.ndarray) -> np.ndarray:
         """(m0, m1, m2) over the tetrahedra of cells whose eight corner distances are known."""
-        m = np.zeros(3)
+        m0 = m1 = m2 = 0.0
         for tets, connectivity, part, weights in self.chunks:
             conn = connectivity[part]  # the chunk's corners gathered again: 8 bytes a cell kept, not 64
             d = [dist[conn[:, q]] for q in range(8)]
             dm = (((((((d[0] + d[1]) + d[2]) + d[3]) + d[4]) + d[5]) + d[6]) + d[7]) / 8.0
             ok = np.isfinite(dm)
-            if not ok.any():
-                continue
-            d = [x[ok] for x in d]
-            dm = dm[ok]
-            w_all = weights[:, ok]
-            d += [(((d[a] + d[b]) + d[c]) + d[e]) / 4.0 for a, b, c, e in _HEX_FACES]
+            if not ok.all():
+                if not ok.any():
+                    continue
+                d = [x[ok] for x in d]
+                dm = dm[ok]
+                weights = weights[:, ok]
+            d += [None] * 6
+            for f in {f for _, _, f in tets if f >= 8}:
+                a, b, c, e = _HEX_FACES[f - 8]
+                d[f] = (((d[a] + d[b]) + d[c]) + d[e]) / 4.0
+            squares = [None if x is None else x * x for x in d]
+            pairs, apexes = {}, {}
+            m0 += float(weights.sum())
             for t, (a, b, f) in enumerate(tets):
-                w = w_all[t]
-                total = ((d[a] + d[b]) + d[f]) + dm
-                squares = ((d[a] * d[a] + d[b] * d[b]) + d[f] * d[f]) + dm * dm
-                m[0] += float(w.sum())
-                m[1] += float((w * total).sum()) / 4.0
-                m[2] += float((w * (total * total + squares)).sum()) / 20.0
-        return m / _SIX
+                key = (a, b) if a < b else (b, a)
+                if key not in pairs:  # sums of the distances and of their squares, once per pair
+                    pairs[key] = (d[a] + d[b], squares[a] + squares[b])
+                if f not in apexes:
+                    apexes[f] = (d[f] + dm, squares[f] + dm * dm)
+                (pair_sum, pair_squares), (apex_sum, apex_squares) = pairs[key], apexes[f]
+                w = weights[t]
+                total = pair_sum + apex_sum
+                m1 += float(np.dot(w, total))
+                total *= total
+                total += pair_squares
+                total += apex_squares
+                m2 += float(np.dot(w, total))
+        return np.array([m0, m1 / 4.0, m2 / 20.0]) / _SIX
 
 
 class _HexBand:
