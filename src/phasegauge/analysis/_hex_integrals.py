@@ -15,7 +15,10 @@ What is integrated, per tetrahedron t of volume V_t with linear c:
 * int c (1 - c) = V_t (s (4 - s) + s - q) / 20, s and q the sums of the vertex values and of
   their squares (exact for a linear c);
 * int |grad c| = V_t |grad c| = |adj(E) dv| / 6, E the edge vectors from the cell centre and
-  dv the value differences (Cramer's rule: the determinant cancels, no division);
+  dv the value differences (Cramer's rule: the determinant cancels, no division); for the
+  tetrahedron (a, b, f) joined to the centre, adj(E) dv = e_f x W + dv_f P and 6 V_t = |e_f . P|
+  with P = e_a x e_b and W = dv_b e_a - dv_a e_b, both formed once per vertex pair (an edge is
+  shared by two faces) and both changing sign with the pair's order, which the norms drop;
 * the band volume of 0.05 < c < 0.95: a cell whose corner values all lie inside the band adds
   its volume (the sum of its tetrahedra), a cell they all lie outside of on one side adds
   nothing; only the cells a band edge crosses are integrated tetrahedron by tetrahedron (the
