@@ -176,27 +176,22 @@ def bulk_plateaus(c_point: np.ndarray, level: float) -> tuple[float, float, floa
     profile between any two plateaus gives its 5-95 % thickness between them.
     """
     c = np.asarray(c_point, dtype=np.float64)
-    finite = np.isfinite(c)
-    if not finite.all():
-        c = c[finite]
+    c = c[np.isfinite(c)]
     plateaus, spreads = [], []
-    # (the selections are this function's own copies: the percentile and the medians partition
-    # them in place, which reorders them but leaves every order statistic as it was)
     for side, ideal, q in ((c[c < level], 0.0, 0.5), (c[c > level], 1.0, 99.5)):
         if side.size == 0:
             plateaus.append(ideal)
             spreads.append(0.0)
             continue
-        extreme = float(np.percentile(side, q, overwrite_input=True))
+        extreme = float(np.percentile(side, q))
         g, near = extreme, side
         for _ in range(3):
             near = side[np.abs(side - g) < 0.05]
-            # never empty: the extreme has neighbours within 0.05
-            median = float(np.median(near, overwrite_input=True))
+            median = float(np.median(near))  # never empty: the extreme has neighbours within 0.05
             if median == g:  # the same g would select the same values again: settled
                 break
             g = median
-        spread = 1.4826 * float(np.median(np.abs(near - g), overwrite_input=True))
+        spread = 1.4826 * float(np.median(np.abs(near - g)))
         if abs(g - extreme) > 0.01 or abs(g - ideal) > 0.25 or abs(g - ideal) <= 3.0 * spread:
             # no plateau on this side (the inside of a thin filament, a profile still
             # approaching its ideal value): the ideal value
