@@ -147,6 +147,9 @@ class _HexCells:
                     cells = start + part
                     weights = self._chunk(tets, block.connectivity[part], clipped, columns, low[cells], high[cells])
                     self.chunks.append((tets, block.connectivity, part, weights))
+        # the corners of cells where c varies: those of the cells where it varies on every
+        # tetrahedron are all known, the others were marked as they came
+        self.need |= self.known
 
     def _chunk(self, tets, conn, values, columns, low, high) -> np.ndarray:
         """Integrals of one chunk of cells added up; returns the tetrahedra's gradient weights.
@@ -229,14 +232,12 @@ class _HexCells:
         every = varying.all(axis=0)  # usually most cells: all their corners are known
         for q in range(8):
             self.known[ids[q][every]] = True
-        some = varying.any(axis=0)
-        partly = np.flatnonzero(some & ~every)
-        if partly.size:
+        partly = np.flatnonzero(varying.any(axis=0) & ~every)
+        if partly.size:  # (the corners of the other cells needed are the known ones: see __init__)
             for q in range(8):
                 rows = [t for t, tet in enumerate(tets) if q in tet]
                 self.known[ids[q][partly[varying[rows][:, partly].any(axis=0)]]] = True
-        for q in range(8):
-            self.need[ids[q][some]] = True
+                self.need[ids[q][partly]] = True
         # band volume: whole cells inside, tetrahedra of the cells a band edge crosses
         inside = (low > _LOW) & (high < _HIGH)
         if inside.any():
