@@ -132,7 +132,7 @@ def _find_on_simplices(mesh: Mesh, c: np.ndarray, level: float, extremes: Corner
     if E.shape[0] == 0:
         return _empty(mesh)
     ends = E.reshape(-1, 2)
-    n_vertices = np.int64(split.coordinates.shape[0])
+    n_vertices = np.int64(split.n_vertices)
     key = np.minimum(ends[:, 0], ends[:, 1]) * n_vertices + np.maximum(ends[:, 0], ends[:, 1])
     # the distinct edges in increasing key (as sorting the edge rows), each element vertex's edge:
     # np.unique(key, return_inverse=True), by one packed sort
@@ -154,7 +154,14 @@ def _find_on_simplices(mesh: Mesh, c: np.ndarray, level: float, extremes: Corner
         flip = (tvec[:, 0] * UP[:, 1] - tvec[:, 1] * UP[:, 0]) < 0
         elements[flip] = elements[flip][:, ::-1]
     else:
-        n = np.cross(P[:, 1] - P[:, 0], P[:, 2] - P[:, 0])
+        a, b = P[:, 1] - P[:, 0], P[:, 2] - P[:, 0]
+        # the cross product a x b dotted with UP, component by component as np.cross forms it
+        ax, ay, az = a[:, 0], a[:, 1], a[:, 2]
+        bx, by, bz = b[:, 0], b[:, 1], b[:, 2]
+        n = np.empty_like(a)
+        np.subtract(ay * bz, az * by, out=n[:, 0])
+        np.subtract(az * bx, ax * bz, out=n[:, 1])
+        np.subtract(ax * by, ay * bx, out=n[:, 2])
         flip = np.einsum("ij,ij->i", n, UP) > 0
         elements[flip] = elements[flip][:, [0, 2, 1]]
     contour = Contour(_to_3d(mesh, pts), elements, owner, dim, tuple(mesh.plane_axes))

@@ -15,7 +15,10 @@ What is integrated, per tetrahedron t of volume V_t with linear c:
 * int c (1 - c) = V_t (s (4 - s) + s - q) / 20, s and q the sums of the vertex values and of
   their squares (exact for a linear c);
 * int |grad c| = V_t |grad c| = |adj(E) dv| / 6, E the edge vectors from the cell centre and
-  dv the value differences (Cramer's rule: the determinant cancels, no division);
+  dv the value differences (Cramer's rule: the determinant cancels, no division); for the
+  tetrahedron (a, b, f) joined to the centre, adj(E) dv = e_f x W + dv_f P and 6 V_t = |e_f . P|
+  with P = e_a x e_b and W = dv_b e_a - dv_a e_b, both formed once per vertex pair (an edge is
+  shared by two faces) and both changing sign with the pair's order, which the norms drop;
 * the band volume of 0.05 < c < 0.95: a cell whose corner values all lie inside the band adds
   its volume (the sum of its tetrahedra), a cell they all lie outside of on one side adds
   nothing; only the cells a band edge crosses are integrated tetrahedron by tetrahedron (the
@@ -53,6 +56,8 @@ _CELL_CHUNK = 1 << 12
 #: band edges of ``interface_width``
 _LOW, _HIGH = 0.05, 0.95
 _HEX_FACES = FACES["hexahedron"]
+#: the weights and volumes of a chunk are kept as six times the measure (times |grad c|)
+_SIX = 6.0
 
 
 def coned_hexahedra(mesh: Mesh) -> list | None:
@@ -142,38 +147,57 @@ class _HexCells:
                     cells = start + part
                     weights = self._chunk(tets, block.connectivity[part], clipped, columns, low[cells], high[cells])
                     self.chunks.append((tets, block.connectivity, part, weights))
+        # the corners of cells where c varies: those of the cells where it varies on every
+        # tetrahedron are all known, the others were marked as they came
+        self.need |= self.known
 
     def _chunk(self, tets, conn, values, columns, low, high) -> np.ndarray:
-        """Integrals of one chunk of cells added up; returns the tetrahedra's gradient weights."""
+        """Integrals of one chunk of cells added up; returns the tetrahedra's gradient weights.
+
+        The weights are kept as six times the measure times |grad c| (``_SIX``), the volumes as
+        six times the measure: the factor is taken out of the sums once.
+        """
         ids = [conn[:, q] for q in range(8)]
         v = [values[i] for i in ids]
         X = [[col[i] for col in columns] for i in ids]
         centre = [(((((((X[0][d] + X[1][d]) + X[2][d]) + X[3][d]) + X[4][d]) + X[5][d]) + X[6][d]) + X[7][d]) / 8.0
                   for d in range(3)]
         vm = (((((((v[0] + v[1]) + v[2]) + v[3]) + v[4]) + v[5]) + v[6]) + v[7]) / 8.0
-        # vertices from the cell centre: corners 0-7, then the face centres 8-13
-        e = [[X[q][d] - centre[d] for d in range(3)] for q in range(8)]
-        for a, b, c, d in _HEX_FACES:
-            e.append([(((X[a][k] + X[b][k]) + X[c][k]) + X[d][k]) / 4.0 - centre[k] for k in range(3)])
-            v.append((((v[a] + v[b]) + v[c]) + v[d]) / 4.0)
-        dv = [x - vm for x in v]
-        v2 = [x * x for x in v]  # squares of the vertex values, for int c^2
-        vm2 = vm * vm
-        negative = {}  # -dv where a cross product is taken the other way round
-        crosses = {}
+        # vertices from the cell centre: corners 0-7 here, the face centres 8-13 when a
+        # tetrahedron reads them
+        e = [[X[q][d] - centre[d] for d in range(3)] for q in range(8)] + [None] * 6
+        v += [None] * 6
+        dv, v2 = [None] * 14, [None] * 14
+        for f in sorted({f for _, _, f in tets if f >= 8}):
+            a, b, c, d = _HEX_FACES[f - 8]
+            e[f] = [(((X[a][k] + X[b][k]) + X[c][k]) + X[d][k]) / 4.0 - centre[k] for k in range(3)]
+            v[f] = (((v[a] + v[b]) + v[c]) + v[d]) / 4.0
+        del X
+        pairs, apexes = {}, {}
 
-        def cross(i, k):  # e_i x e_k (low vertex first), each pair formed once per chunk
-            if (i, k) not in crosses:
-                p, q = e[i], e[k]
-                crosses[i, k] = (p[1] * q[2] - p[2] * q[1], p[2] * q[0] - p[0] * q[2], p[0] * q[1] - p[1] * q[0])
-            return crosses[i, k]
+        def pair(a, b):
+            """Per vertex pair (low first): P = e_a x e_b, W = dv_b e_a - dv_a e_b, v_a + v_b, v_a^2 + v_b^2."""
+            key = (a, b) if a < b else (b, a)
+            if key not in pairs:
+                a, b = key
+                for q in key:
+                    if dv[q] is None:
+                        dv[q] = v[q] - vm
+                        v2[q] = v[q] * v[q]
+                p, q = e[a], e[b]
+                cross = (p[1] * q[2] - p[2] * q[1], p[2] * q[0] - p[0] * q[2], p[0] * q[1] - p[1] * q[0])
+                w = tuple(dv[b] * p[k] - dv[a] * q[k] for k in range(3))
+                pairs[key] = (cross, w, v[a] + v[b], v2[a] + v2[b])
+            return pairs[key]
 
-        def term(value, i, k):  # (dv_value, e_i x e_k) as (factor, cross) with the pair in low-first order
-            if i < k:
-                return dv[value], cross(i, k)
-            if value not in negative:
-                negative[value] = -dv[value]
-            return negative[value], cross(k, i)
+        def apex(f):
+            """Per third vertex: dv_f, v_f + vm, v_f^2 + vm^2."""
+            if f not in apexes:
+                if dv[f] is None:
+                    dv[f] = v[f] - vm
+                    v2[f] = v[f] * v[f]
+                apexes[f] = (dv[f], v[f] + vm, v2[f] + vm * vm)
+            return apexes[f]
 
         n = conn.shape[0]
         weights = np.empty((len(tets), n))
@@ -181,66 +205,88 @@ class _HexCells:
         mixed = np.zeros(n)
         for t, (a, b, f) in enumerate(tets):
             # tetrahedron (a, b, f, m) from m: adj(E) dv = dv_a (e_b x e_f) + dv_b (e_f x e_a) + dv_f (e_a x e_b)
-            (ua, bf), (ub, fa), (uf, ab) = term(a, b, f), term(b, f, a), term(f, a, b)
-            gx = ua * bf[0] + ub * fa[0] + uf * ab[0]
-            gy = ua * bf[1] + ub * fa[1] + uf * ab[1]
-            gz = ua * bf[2] + ub * fa[2] + uf * ab[2]
-            det = e[a][0] * bf[0] + e[a][1] * bf[1] + e[a][2] * bf[2]
-            if b > f:
-                det = -det
-            measure = np.abs(det) / 6.0
-            weights[t] = np.sqrt(gx * gx + gy * gy + gz * gz)
-            volumes[t] = measure
-            s = ((v[a] + v[b]) + v[f]) + vm
-            q = ((v2[a] + v2[b]) + v2[f]) + vm2
-            mixed += measure * (s * (4.0 - s) + s - q)
-        weights /= 6.0
+            # = e_f x W + dv_f P, its determinant e_f . P (each up to a sign the norms drop)
+            (px, py, pz), (wx, wy, wz), pair_sum, pair_squares = pair(a, b)
+            uf, apex_sum, apex_squares = apex(f)
+            fx, fy, fz = e[f]
+            gx = (fy * wz - fz * wy) + uf * px
+            gy = (fz * wx - fx * wz) + uf * py
+            gz = (fx * wy - fy * wx) + uf * pz
+            measure = np.abs(fx * px + fy * py + fz * pz, out=volumes[t])  # six times the measure
+            gx *= gx
+            gy *= gy
+            gx += gy
+            gz *= gz
+            gx += gz
+            np.sqrt(gx, out=weights[t])
+            s = pair_sum + apex_sum
+            q = pair_squares + apex_squares
+            q -= s * (5.0 - s)  # int c (1 - c) = measure (s (4 - s) + s - q) / 20
+            q *= measure
+            mixed -= q
         weights[volumes == 0] = 0.0  # a flat tetrahedron has no gradient (as the split's)
-        self.mixed += float(mixed.sum()) / 20.0
-        self.total_gradient += float(weights.sum())
+        self.mixed += float(mixed.sum()) / (20.0 * _SIX)
+        self.total_gradient += float(weights.sum()) / _SIX
         self.count += len(tets) * n
         varying = weights > 0
+        every = varying.all(axis=0)  # usually most cells: all their corners are known
         for q in range(8):
-            rows = [t for t, tet in enumerate(tets) if q in tet]
-            self.known[ids[q][varying[rows].any(axis=0)]] = True
-        some = varying.any(axis=0)
-        for q in range(8):
-            self.need[ids[q][some]] = True
+            self.known[ids[q][every]] = True
+        partly = np.flatnonzero(varying.any(axis=0) & ~every)
+        if partly.size:  # (the corners of the other cells needed are the known ones: see __init__)
+            for q in range(8):
+                rows = [t for t, tet in enumerate(tets) if q in tet]
+                self.known[ids[q][partly[varying[rows][:, partly].any(axis=0)]]] = True
+                self.need[ids[q][partly]] = True
         # band volume: whole cells inside, tetrahedra of the cells a band edge crosses
         inside = (low > _LOW) & (high < _HIGH)
         if inside.any():
-            self.band += float(volumes[:, inside].sum())
+            self.band += float(volumes[:, inside].sum()) / _SIX
         cut = np.flatnonzero(~inside & (high >= _LOW) & (low <= _HIGH))
         if cut.size:  # all tetrahedra of these cells in one pass
-            vc = [x[cut] for x in v]
+            vc = [None if x is None else x[cut] for x in v]
             self.band += _band_volume(volumes[:, cut].ravel(), [np.concatenate([vc[a] for a, _, _ in tets]),
                                                                 np.concatenate([vc[b] for _, b, _ in tets]),
                                                                 np.concatenate([vc[f] for _, _, f in tets]),
-                                                                np.tile(vm[cut], len(tets))])
+                                                                np.tile(vm[cut], len(tets))]) / _SIX
         return weights
 
     def moments(self, dist: np.ndarray) -> np.ndarray:
         """(m0, m1, m2) over the tetrahedra of cells whose eight corner distances are known."""
-        m = np.zeros(3)
+        m0 = m1 = m2 = 0.0
         for tets, connectivity, part, weights in self.chunks:
             conn = connectivity[part]  # the chunk's corners gathered again: 8 bytes a cell kept, not 64
             d = [dist[conn[:, q]] for q in range(8)]
             dm = (((((((d[0] + d[1]) + d[2]) + d[3]) + d[4]) + d[5]) + d[6]) + d[7]) / 8.0
             ok = np.isfinite(dm)
-            if not ok.any():
-                continue
-            d = [x[ok] for x in d]
-            dm = dm[ok]
-            w_all = weights[:, ok]
-            d += [(((d[a] + d[b]) + d[c]) + d[e]) / 4.0 for a, b, c, e in _HEX_FACES]
+            if not ok.all():
+                if not ok.any():
+                    continue
+                d = [x[ok] for x in d]
+                dm = dm[ok]
+                weights = weights[:, ok]
+            d += [None] * 6
+            for f in {f for _, _, f in tets if f >= 8}:
+                a, b, c, e = _HEX_FACES[f - 8]
+                d[f] = (((d[a] + d[b]) + d[c]) + d[e]) / 4.0
+            squares = [None if x is None else x * x for x in d]
+            pairs, apexes = {}, {}
+            m0 += float(weights.sum())
             for t, (a, b, f) in enumerate(tets):
-                w = w_all[t]
-                total = ((d[a] + d[b]) + d[f]) + dm
-                squares = ((d[a] * d[a] + d[b] * d[b]) + d[f] * d[f]) + dm * dm
-                m[0] += float(w.sum())
-                m[1] += float((w * total).sum()) / 4.0
-                m[2] += float((w * (total * total + squares)).sum()) / 20.0
-        return m
+                key = (a, b) if a < b else (b, a)
+                if key not in pairs:  # sums of the distances and of their squares, once per pair
+                    pairs[key] = (d[a] + d[b], squares[a] + squares[b])
+                if f not in apexes:
+                    apexes[f] = (d[f] + dm, squares[f] + dm * dm)
+                (pair_sum, pair_squares), (apex_sum, apex_squares) = pairs[key], apexes[f]
+                w = weights[t]
+                total = pair_sum + apex_sum
+                m1 += float(np.dot(w, total))
+                total *= total
+                total += pair_squares
+                total += apex_squares
+                m2 += float(np.dot(w, total))
+        return np.array([m0, m1 / 4.0, m2 / 20.0]) / _SIX
 
 
 class _HexBand:
