@@ -140,28 +140,20 @@ def _plane_pieces(mesh: Mesh, axis: int, position: float, lower_end: bool, cells
     # each crossed simplex's corners in increasing s: the sorted s, and the corner slot each came
     # from (int8: little to write); the nodes are read through the slots below
     s, slot = _sorted_corners([column[rows] for column in s])
-    # every piece corner, in the order the cases list them (pieces of one case by simplex, case by
-    # case): per case the simplices with that many corners below, per piece corner the edge (i, j)
-    # between its sorted corners, read as columns of the case's rows (no flat positions to form)
-    t, start, end, parents = [], [], [], []
-    for count, pieces in _CASES[dim]:
-        chosen = np.flatnonzero(below == count)
-        S, L, N = s[chosen], slot[chosen], nodes[rows[chosen]].ravel()
-        at = np.arange(0, N.size, k)  # each simplex's first node in N
-        for piece in pieces:
-            t_piece = np.empty((chosen.size, dim), dtype=S.dtype)
-            ends = [np.empty((chosen.size, dim), dtype=N.dtype) for _ in range(2)]
-            for c, edge in enumerate(piece):
-                si = S[:, edge[0]]
-                t_piece[:, c] = si / (si - S[:, edge[1]])
-                for node, corner in zip(ends, edge):
-                    node[:, c] = N[at + L[:, corner]]
-            t.append(t_piece)
-            start.append(ends[0])
-            end.append(ends[1])
-            parents.append(parent[chosen])  # each piece's cell
-    del below, rows, s, slot, nodes
-    t, start, end, parent = (np.concatenate(parts) for parts in (t, start, end, parents))
+    # every piece corner at once: the simplex row and the two sorted corners of its edge, in the
+    # order the cases list them (pieces of one case by simplex, case by case)
+    row, i, j = _piece_edges(below, dim)
+    first, second = row * k + i, row * k + j  # (n, dim) flat positions in the sorted corner arrays
+    del i, j, below
+    s, slot = s.ravel(), slot.ravel()
+    si = s[first]
+    t = si / (si - s[second])
+    del si, s
+    nodes, base = nodes.ravel(), rows[row] * k
+    parent = parent[row[:, 0]]  # each piece's cell
+    del row, rows
+    start, end = nodes[base + slot[first]], nodes[base + slot[second]]
+    del nodes, base, slot, first, second
     # the simplices go; the split's centres are still read below
     split = replace(split, simplices=np.empty((0, k), dtype=np.int64), owner=np.empty(0, dtype=np.int64))
     X = []  # per in-plane axis, (n, dim): the corners, as the split interpolates them
@@ -201,6 +193,25 @@ _CASES = MappingProxyType({
     3: ((1, (((0, 1), (0, 2), (0, 3)),)), (3, (((0, 3), (1, 3), (2, 3)),)),
         (2, (((0, 2), (0, 3), (1, 3)), ((0, 2), (1, 3), (1, 2))))),
 })
+
+
+def _piece_edges(below: np.ndarray, dim: int) -> tuple:
+    """Simplex row (n, dim) and sorted corners i, j (n, dim) of every piece corner.
+
+    Pieces are listed case by case (a triangle for one corner below, for three, then the two
+    triangles of a quadrilateral for two, each over all its simplices in turn), every case
+    over its simplices in order.
+    """
+    rows, i, j = [], [], []
+    for count, pieces in _CASES[dim]:
+        chosen = np.flatnonzero(below == count)
+        for piece in pieces:
+            rows.append(chosen)
+            i.append(np.array([a for a, _ in piece]))
+            j.append(np.array([b for _, b in piece]))
+    sizes = [r.size for r in rows]
+    row = np.repeat(np.concatenate(rows)[:, None], dim, axis=1)
+    return (row, np.repeat(np.stack(i), sizes, axis=0), np.repeat(np.stack(j), sizes, axis=0))
 
 
 def _sorted_corners(columns: list) -> tuple:
