@@ -1,7 +1,7 @@
 """The mesh's fast paths against its general paths and outside references.
 
 Cell geometry: affine hexahedra and wedges take the triple product, quads a closed form,
-other hexahedra and pyramids Gauss points in the map's coefficients; each is checked
+other hexahedra and pyramids the closed-form integrals of the trilinear map; each is checked
 against the general per-block Gauss quadrature (``_block_geometry``, kept as the reference
 path), against pyvista/VTK's ``compute_cell_sizes`` and against exact formulas. Face
 grouping (packed sorts) is checked against ``numpy.unique``; the coincident-point check
@@ -106,6 +106,43 @@ def test_bilinear_quad_closed_form_is_exact():
     q = Mesh([[0, 0], [4, 0], [3, 3], [1, 3]], [("quad", [[0, 1, 2, 3]])])
     assert q.cell_measures[0] == pytest.approx(9.0, rel=1e-15)
     assert q.cell_centroids[0] == pytest.approx([2.0, 3 * (2 * 2 + 4) / (3 * 6)], rel=1e-15)
+
+
+def _trilinear_point(corners, u, v, w):
+    """VTK's hexahedron map at (u, v, w) in [0, 1]^3 and its Jacobian determinant."""
+    weights = [(1 - u) * (1 - v) * (1 - w), u * (1 - v) * (1 - w), u * v * (1 - w), (1 - u) * v * (1 - w),
+               (1 - u) * (1 - v) * w, u * (1 - v) * w, u * v * w, (1 - u) * v * w]
+    du = [-(1 - v) * (1 - w), (1 - v) * (1 - w), v * (1 - w), -v * (1 - w), -(1 - v) * w, (1 - v) * w, v * w, -v * w]
+    dv = [-(1 - u) * (1 - w), -u * (1 - w), u * (1 - w), (1 - u) * (1 - w), -(1 - u) * w, -u * w, u * w, (1 - u) * w]
+    dw = [-(1 - u) * (1 - v), -u * (1 - v), -u * v, -(1 - u) * v, (1 - u) * (1 - v), u * (1 - v), u * v, (1 - u) * v]
+    jacobian = np.stack([np.dot(d, corners) for d in (du, dv, dw)], axis=1)
+    return np.dot(weights, corners), np.linalg.det(jacobian)
+
+
+@pytest.mark.parametrize("seed", [0, 1, 2, 3])
+def test_bent_hexahedron_closed_form_against_legendre_quadrature(seed):
+    # volume and centroid of a bent (trilinear) hexahedron: the closed form against numpy's
+    # Gauss-Legendre rule (numpy.polynomial.legendre.leggauss, 4 points per direction: exact for
+    # det J and x det J, of degree 3 in each reference coordinate) over the reference cube
+    rng = np.random.default_rng(seed)
+    unit = np.array([[0, 0, 0], [1, 0, 0], [1, 1, 0], [0, 1, 0], [0, 0, 1], [1, 0, 1], [1, 1, 1], [0, 1, 1]], float)
+    corners = unit * [1.0, 2.0, 1.5] + rng.uniform(-0.4, 0.4, (8, 3)) + [5.0, -2.0, 1.0]
+    m = Mesh(corners, [("hexahedron", [list(range(8))])])
+    nodes, weights = np.polynomial.legendre.leggauss(4)
+    nodes, weights = 0.5 * (nodes + 1.0), 0.5 * weights  # on [0, 1]
+    volume, moment = 0.0, np.zeros(3)
+    for u, wu in zip(nodes, weights):
+        for v, wv in zip(nodes, weights):
+            for w, ww in zip(nodes, weights):
+                x, det = _trilinear_point(corners, u, v, w)
+                volume += wu * wv * ww * det
+                moment += wu * wv * ww * det * x
+    assert m.cell_measures[0] == pytest.approx(volume, rel=1e-13)
+    assert m.cell_centroids[0] == pytest.approx(moment / volume, rel=1e-13)
+    # and the general per-block Gauss rule (exact for a trilinear map) to rounding
+    gauss_volume, gauss_centroid = _geometry._block_geometry("hexahedron", corners[None])
+    assert m.cell_measures[0] == pytest.approx(gauss_volume[0], rel=1e-14)
+    assert m.cell_centroids[0] == pytest.approx(gauss_centroid[0], rel=1e-14)
 
 
 @pytest.mark.parametrize("kind", ["hexahedron", "wedge", "pyramid"])

@@ -68,12 +68,51 @@ def _overlaps(mesh) -> dict:
     for block in mesh.blocks:
         if len(block) < 2 or (not repeats_possible and block.cell_type in _SIMPLICES):
             continue
-        duplicates += _repeated_rows(sort_small_rows(np.asarray(block.connectivity)))
+        duplicates += _repeated_sets(np.asarray(block.connectivity))
     covered = 0 if regular or duplicates or crowded else _covered_boundary_faces(mesh)
     return {"duplicate_cells": duplicates, "crowded_faces": crowded, "covered_boundary_faces": covered}
 
 
 _SIMPLICES = ("triangle", "tetra")
+
+#: cells per chunk of :func:`_repeated_sets` (the mixing temporaries stay in cache)
+_CHUNK = 1 << 14
+
+
+def _repeated_sets(connectivity: np.ndarray) -> int:
+    """Rows of ``connectivity`` (n, k) whose corner set (with repeats) equals an earlier row's, exactly.
+
+    A 64-bit mix of each corner, summed over the row (the same for any order of the corners, so
+    the rows need no sort): rows with distinct sums differ, so only the rows whose sum repeats
+    (none on a valid mesh, a few by chance) are sorted and grouped column by column
+    (:func:`_repeated_rows`). Sorting every row first cost about 0.1-0.2 s on 1M hexahedra.
+    """
+    n, k = connectivity.shape
+    mix = np.empty(n, dtype=np.uint64)
+    with np.errstate(over="ignore"):
+        for lo in range(0, n, _CHUNK):
+            part = connectivity[lo:lo + _CHUNK]
+            total = np.zeros(part.shape[0], dtype=np.uint64)
+            for j in range(k):
+                total += _mixed(part[:, j])
+            mix[lo:lo + _CHUNK] = total
+    ordered = np.sort(mix)
+    repeats = ordered[1:][ordered[1:] == ordered[:-1]]
+    if repeats.size == 0:
+        return 0
+    return _repeated_rows(sort_small_rows(connectivity[np.isin(mix, repeats)]))
+
+
+def _mixed(values: np.ndarray) -> np.ndarray:
+    """A 64-bit mix of each integer (the finaliser of SplitMix64: distinct inputs stay distinct)."""
+    z = values.astype(np.uint64)
+    z += np.uint64(0x9E3779B97F4A7C15)
+    z ^= z >> np.uint64(30)
+    z *= np.uint64(0xBF58476D1CE4E5B9)
+    z ^= z >> np.uint64(27)
+    z *= np.uint64(0x94D049BB133111EB)
+    z ^= z >> np.uint64(31)
+    return z
 
 
 def _repeated_rows(rows: np.ndarray) -> int:
