@@ -1,6 +1,8 @@
 """Command-line messages: -q hides only the progress, --debug after the subcommand, samples --list,
 run --strict."""
 
+import os
+
 import numpy as np
 from click.testing import CliRunner
 
@@ -73,3 +75,22 @@ def test_inspect_help_lists_the_readme_formats():
     named = set(re.findall(r"`(\.[a-z]{3,4})`", readme.split("`PATH` is one mesh file", 1)[1][:400]))
     assert named and all(suffix in text for suffix in named)
     assert {".vtu", ".vtk", ".xdmf", ".vtm"} <= set(MESH_SUFFIXES)
+
+
+def test_the_command_turns_numpys_huge_page_advice_off_unless_the_user_set_it(monkeypatch):
+    # numpy reads NUMPY_MADVISE_HUGEPAGE when it is imported [numpy's "Global state" page]: the
+    # command sets it before any command imports numpy, and keeps a value the user gave
+    import subprocess
+    import sys
+
+    for given, expected in ((None, "0"), ("1", "1")):
+        if given is None:
+            monkeypatch.delenv("NUMPY_MADVISE_HUGEPAGE", raising=False)
+        else:
+            monkeypatch.setenv("NUMPY_MADVISE_HUGEPAGE", given)
+        CliRunner().invoke(main, ["samples", "list"])
+        assert os.environ["NUMPY_MADVISE_HUGEPAGE"] == expected
+    # numpy is not imported before the group's callback runs (else the switch came too late)
+    code = "import sys, phasegauge.cli; print('numpy' in sys.modules)"
+    out = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True, check=True)
+    assert out.stdout.strip() == "False"

@@ -110,6 +110,13 @@ class _WarningPrinter:
 @click.pass_context
 def main(ctx, debug):
     """Measure interfaces, droplets, mixing and conservation in two-phase simulation output."""
+    # numpy's madvise of huge pages (its documented switch NUMPY_MADVISE_HUGEPAGE, read when numpy is
+    # imported, in the commands) is off for this command unless the user set it: where the
+    # kernel compacts memory to hand out huge pages on request (Linux transparent hugepages "madvise"
+    # with defrag "madvise", a common server setting), a run's fresh arrays stalled in the kernel (the
+    # first step on 1M jittered hexahedra 10.1-10.4 s with it, 6.6-7.0 s without: benchmarks/RESULTS.md,
+    # tenth round). Worker processes inherit it.
+    os.environ.setdefault("NUMPY_MADVISE_HUGEPAGE", "0")
     ctx.ensure_object(dict)
     ctx.obj["debug"] = debug
     warnings.showwarning = _WarningPrinter(debug)
