@@ -46,13 +46,23 @@ def _split_path(monkeypatch):
     monkeypatch.setattr(width_module, "coned_hexahedra", lambda mesh: None)
 
 
+def _collapsed():
+    """Jittered hexahedra, every fifth with one corner repeated (a wedge written as a hexahedron, as
+    solvers write them): flat tetrahedra, so c varies on some of those cells' tetrahedra only."""
+    mesh = grid_mesh((10, 10, 10), kind="hexahedron", jitter=0.2, seed=5)
+    conn = mesh.blocks[0].connectivity.copy()
+    conn[::5, 5] = conn[::5, 4]
+    return Mesh(mesh.points, [("hexahedron", conn)])
+
+
 def _meshes():
     return {"jittered": grid_mesh((10, 10, 10), kind="hexahedron", jitter=0.2, seed=5),
+            "collapsed": _collapsed(),
             "turned": _rotated_corners(grid_mesh((10, 10, 10), kind="hexahedron")),
             "turned_some": _rotated_corners(grid_mesh((10, 10, 10), kind="hexahedron"), every=7)}
 
 
-@pytest.mark.parametrize("name", ["jittered", "turned", "turned_some"])
+@pytest.mark.parametrize("name", ["jittered", "turned", "turned_some", "collapsed"])
 @pytest.mark.parametrize("cells_across", [1.0, 2.5])
 def test_cell_path_matches_the_full_split(monkeypatch, name, cells_across):
     mesh = _meshes()[name]
@@ -60,7 +70,8 @@ def test_cell_path_matches_the_full_split(monkeypatch, name, cells_across):
     rows, codes = coned[0]
     if name == "jittered":  # every inner face bent: every cell coned, on all six faces inside
         assert rows.size == mesh.n_cells and (codes == 63).sum() == 8 ** 3
-    elif name == "turned":  # every face between a turned cell and another is cut two ways
+    elif name in ("turned", "collapsed"):  # turned: every face between a turned cell and another is
+        # cut two ways; collapsed: bent faces everywhere
         assert rows.size == mesh.n_cells
     else:  # some cells coned, the others cut by the table (the split handles those)
         assert 0 < rows.size < mesh.n_cells

@@ -48,6 +48,7 @@ from ..model.mesh import Mesh
 from ..model._grouping import index_dtype
 from ..model._split_tables import TABLE_DIAGONALS
 from ..model.simplices import _split_plan
+from ._sums import dot
 from ._signed_distance import _ContourGeometry, _signed_distance
 from ._width_integrals import _SplitBand, _band_volume
 
@@ -221,7 +222,7 @@ class _HexCells:
             np.sqrt(gx, out=weights[t])
             s = pair_sum + apex_sum
             q = pair_squares + apex_squares
-            q -= s * (5.0 - s)  # int c (1 - c) = measure (s (4 - s) + s - q) / 20
+            q -= s * (5.0 - s)  # int c (1 - c) = measure (s (4 - s) + s - q) / 20, measure six-fold here
             q *= measure
             mixed -= q
         weights[volumes == 0] = 0.0  # a flat tetrahedron has no gradient (as the split's)
@@ -234,9 +235,10 @@ class _HexCells:
             self.known[ids[q][every]] = True
         partly = np.flatnonzero(varying.any(axis=0) & ~every)
         if partly.size:  # (the corners of the other cells needed are the known ones: see __init__)
+            some = varying[:, partly]
             for q in range(8):
                 rows = [t for t, tet in enumerate(tets) if q in tet]
-                self.known[ids[q][partly[varying[rows][:, partly].any(axis=0)]]] = True
+                self.known[ids[q][partly[some[rows].any(axis=0)]]] = True
                 self.need[ids[q][partly]] = True
         # band volume: whole cells inside, tetrahedra of the cells a band edge crosses
         inside = (low > _LOW) & (high < _HIGH)
@@ -281,11 +283,11 @@ class _HexCells:
                 (pair_sum, pair_squares), (apex_sum, apex_squares) = pairs[key], apexes[f]
                 w = weights[t]
                 total = pair_sum + apex_sum
-                m1 += float(np.dot(w, total))
+                m1 += dot(w, total)
                 total *= total
                 total += pair_squares
                 total += apex_squares
-                m2 += float(np.dot(w, total))
+                m2 += dot(w, total)
         return np.array([m0, m1 / 4.0, m2 / 20.0]) / _SIX
 
 
