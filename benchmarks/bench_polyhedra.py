@@ -130,6 +130,9 @@ def _child(config: str, folder: str) -> None:
 
 def run_child(config: str, folder: str) -> dict:
     env = dict(os.environ)
+    # every job (the baseline too) with numpy's huge-page advice as the command sets it (off unless
+    # given: NUMPY_MADVISE_HUGEPAGE=1 in this process's environment measures numpy's default)
+    env.setdefault("NUMPY_MADVISE_HUGEPAGE", "0")
     src = os.path.join(os.path.dirname(os.path.dirname(os.path.abspath(__file__))), "src")
     env["PYTHONPATH"] = src + os.pathsep + env.get("PYTHONPATH", "")
     proc = subprocess.run([sys.executable, os.path.abspath(__file__), "--child", config, folder],
