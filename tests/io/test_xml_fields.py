@@ -108,3 +108,19 @@ def test_a_damaged_field_is_not_read(tmp_path):
         handle.write(bytes(data))
     layout = scan_layout(path)
     assert layout is not None and read_fields(path, layout) is None
+
+
+def test_files_scanned_in_small_chunks_read_alike(tmp_path, monkeypatch):
+    # tags and the polyhedra's face array names cut across the chunks' ends: the same layout
+    import phasegauge.io._polyhedra as polyhedral_io
+    import phasegauge.io._xml_fields as xml_fields
+
+    path = _write_vtk(_grid(), tmp_path / "a.vtu")
+    whole = scan_layout(path)
+    assert polyhedral_io.xml_holds_polyhedra(path)
+    for size in (5, 13, 64):
+        monkeypatch.setattr(xml_fields, "CHUNK", size)
+        monkeypatch.setattr(polyhedral_io, "CHUNK", size)
+        assert scan_layout(path) == whole
+        assert polyhedral_io.xml_holds_polyhedra(path)
+    _assert_same_as_vtk(path)

@@ -40,7 +40,7 @@ import numpy as np
 
 from ..errors import MeshWarning, UnreadableFileError, UnsupportedMeshError, short_text
 from ._meshio_adapter import CONVEX_POINT_SET, convex_point_sets, ensure_vtk_extras, new_mesh, read_with_meshio
-from ._xml_fields import read_fields, scan_layout
+from ._xml_fields import CHUNK, read_fields, scan_layout
 
 __all__ = ["xml_holds_polyhedra", "legacy_holds_polyhedra", "read_polyhedral", "PolyhedralRead", "DeferredRead"]
 
@@ -53,16 +53,26 @@ _QUAD_FACED = ("hexahedron", "wedge", "pyramid")
 
 
 def xml_holds_polyhedra(path: str) -> bool:
-    """True when a VTK XML file names polyhedron face arrays (of format 2.3 or before) in its XML."""
+    """True when a VTK XML file names polyhedron face arrays (of format 2.3 or before) in its XML.
+
+    Read in chunks (a chunk and the end of the one before it), up to the appended data if any:
+    the whole file is never held (nor mapped: mapped pages count in the process's memory).
+    """
+    names = (b'Name="faceoffsets"', b'Name="face_offsets"')
+    keep = max(len(b"<AppendedData"), *map(len, names)) - 1
+    tail = b""
     with open(path, "rb") as handle:
-        try:
-            view = mmap.mmap(handle.fileno(), 0, access=mmap.ACCESS_READ)
-        except ValueError:  # an empty file
-            return False
-        with view:
-            end = view.find(b"<AppendedData")
-            end = len(view) if end < 0 else end
-            return any(view.find(name, 0, end) >= 0 for name in (b'Name="faceoffsets"', b'Name="face_offsets"'))
+        while True:
+            chunk = handle.read(CHUNK)
+            if not chunk:
+                return False
+            buf = tail + chunk
+            end = buf.find(b"<AppendedData")
+            if any(buf.find(name, 0, len(buf) if end < 0 else end) >= 0 for name in names):
+                return True
+            if end >= 0:
+                return False
+            tail = buf[-keep:]
 
 
 def legacy_holds_polyhedra(path: str) -> bool:

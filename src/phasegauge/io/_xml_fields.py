@@ -30,7 +30,10 @@ from dataclasses import dataclass
 
 import numpy as np
 
-__all__ = ["XmlLayout", "scan_layout", "read_fields"]
+__all__ = ["XmlLayout", "scan_layout", "read_fields", "CHUNK"]
+
+#: bytes read at a time when a file is scanned (the whole file is never held)
+CHUNK = 1 << 22
 
 #: VTK XML data types read here, as numpy type codes (byte order added from the file)
 _TYPES = {"Int8": "i1", "UInt8": "u1", "Int16": "i2", "UInt16": "u2", "Int32": "i4", "UInt32": "u4",
@@ -79,21 +82,46 @@ def _attributes(tag: bytes) -> dict:
     return {k.decode(): v.decode() for k, v in _ATTRIBUTE.findall(tag)}
 
 
-def _tags(data: bytes) -> list | None:
+def _tags(handle) -> tuple | None:
     """Every XML tag of the file: (start, end after its ``>``, name with a leading ``/`` for a
-    closing tag, its attributes). One pass: base64 and numbers never hold ``<``."""
-    tags, at = [], 0
+    closing tag, its text), and the file's size; None when a tag is not closed. One pass in
+    chunks of :data:`CHUNK` bytes (no copy of the whole file): base64 and numbers never hold ``<``."""
+    tags, carry, base = [], b"", 0  # base: the file offset of carry's first byte
     while True:
-        start = data.find(b"<", at)
-        if start < 0:
-            return tags
-        end = data.find(b">", start)
-        if end < 0:
-            return None
-        text = data[start + 1:end]
-        name = text.split(None, 1)[0].rstrip(b"/") if text.strip() else b""
-        tags.append((start, end + 1, name.decode("latin-1"), text))
-        at = end + 1
+        chunk = handle.read(CHUNK)
+        buf = carry + chunk if carry else chunk
+        at, carry = 0, b""
+        while True:
+            start = buf.find(b"<", at)
+            if start < 0:
+                break
+            end = buf.find(b">", start)
+            if end < 0:
+                carry = buf[start:]
+                break
+            text = buf[start + 1:end]
+            name = text.split(None, 1)[0].rstrip(b"/") if text.strip() else b""
+            tags.append((base + start, base + end + 1, name.decode("latin-1"), text))
+            at = end + 1
+        base += len(buf) - len(carry)
+        if not chunk:
+            return None if carry else (tags, base)
+
+
+def _digest(handle, spans: list, size: int) -> str:
+    """Hash of the file's bytes outside ``spans`` (sorted, apart), read in chunks."""
+    digest = hashlib.sha256()
+    at = 0
+    for start, end in [*spans, (size, size)]:
+        handle.seek(at)
+        while at < start:
+            part = handle.read(min(CHUNK, start - at))
+            if not part:
+                break
+            digest.update(part)
+            at += len(part)
+        at = end
+    return digest.hexdigest()[:32]
 
 
 def _array(tag: tuple, stop: tuple, section: str, count: int | None, order: str) -> _Array | None:
@@ -119,10 +147,18 @@ def _array(tag: tuple, stop: tuple, section: str, count: int | None, order: str)
 def scan_layout(path: str) -> XmlLayout | None:
     """The layout of a VTK XML unstructured-grid file's fields (see the module notes), or None."""
     with open(path, "rb") as handle:
-        data = handle.read()
-    tags = _tags(data)
-    if not tags or data[tags[-1][1]:].strip() or tags[-1][2] != "/VTKFile":
-        return None  # not closed: perhaps written only in part
+        found = _tags(handle)
+        if not found or not found[0]:
+            return None
+        tags, size = found
+        handle.seek(tags[-1][1])
+        if tags[-1][2] != "/VTKFile" or handle.read(size - tags[-1][1]).strip():
+            return None  # not closed: perhaps written only in part
+        layout = _layout(handle, tags, size)
+    return layout
+
+
+def _layout(handle, tags: list, size: int) -> XmlLayout | None:
     names = [t[2] for t in tags]
     if "AppendedData" in names or names.count("Piece") != 1 or "VTKFile" not in names:
         return None
@@ -160,16 +196,10 @@ def scan_layout(path: str) -> XmlLayout | None:
             return None  # something else inside a field section
     if section is not None or in_array:
         return None
-    digest = hashlib.sha256()
-    view, at = memoryview(data), 0
-    for start, end in spans:
-        digest.update(view[at:start])
-        at = end
-    digest.update(view[at:])
-    view.release()
+    signature = _digest(handle, spans, size)
     header = np.dtype(order + ("u4" if head.get("header_type", "UInt32") == "UInt32" else "u8"))
     compressed = "compressor" in head
-    return XmlLayout("xml:" + digest.hexdigest()[:32], header, compressed, tuple(arrays))
+    return XmlLayout("xml:" + signature, header, compressed, tuple(arrays))
 
 
 def _b64_length(n_bytes: int) -> int:
