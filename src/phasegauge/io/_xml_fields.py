@@ -27,6 +27,7 @@ import hashlib
 import re
 import zlib
 from dataclasses import dataclass
+from types import MappingProxyType
 
 import numpy as np
 
@@ -36,11 +37,11 @@ __all__ = ["XmlLayout", "scan_layout", "read_fields", "CHUNK"]
 CHUNK = 1 << 22
 
 #: VTK XML data types read here, as numpy type codes (byte order added from the file)
-_TYPES = {"Int8": "i1", "UInt8": "u1", "Int16": "i2", "UInt16": "u2", "Int32": "i4", "UInt32": "u4",
-          "Int64": "i8", "UInt64": "u8", "Float32": "f4", "Float64": "f8"}
-#: the field sections, and the count their arrays' tuples run over
-_SECTIONS = {"PointData": "point", "CellData": "cell", "FieldData": "field"}
-_NAMES = {section: name for name, section in _SECTIONS.items()}
+_TYPES = MappingProxyType({"Int8": "i1", "UInt8": "u1", "Int16": "i2", "UInt16": "u2", "Int32": "i4",
+                           "UInt32": "u4", "Int64": "i8", "UInt64": "u8", "Float32": "f4", "Float64": "f8"})
+#: the field sections, and the name of the arrays' location in each
+_SECTIONS = MappingProxyType({"PointData": "point", "CellData": "cell", "FieldData": "field"})
+_NAMES = MappingProxyType({section: name for name, section in _SECTIONS.items()})
 _ATTRIBUTE = re.compile(rb'([A-Za-z_]+)="([^"]*)"')
 
 
