@@ -210,34 +210,3 @@ def test_a_series_splits_its_polyhedra_once(tmp_path, monkeypatch):
     # each step's own point values, the centres' as their corners' means (a linear field: exact)
     for k, step in enumerate(steps):
         np.testing.assert_allclose(step.fields.point_data["c"], step.mesh.points[:, 0] * (k + 1) / 3, atol=1e-14)
-
-
-def test_later_steps_read_only_their_fields(tmp_path, monkeypatch):
-    # a later step whose points, cells and faces are written alike reads only its fields; they equal
-    # what VTK's reader gives for the whole file [lib] (each step read alone, in a series of its own)
-    import phasegauge.io._polyhedra as polyhedral_io
-
-    m = grid_mesh((3, 3, 2), kind="hexahedron", jitter=0.2, seed=2)
-    grid = to_polyhedral_grid(m)
-    for k in range(3):
-        grid.point_data["c"] = m.points[:, 0] * (k + 1) / 3
-        grid.point_data["U"] = np.outer(m.points[:, 1], [1.0, -k, 2.0])
-        grid.cell_data["p"] = np.arange(m.n_cells, dtype=float) * (k + 1)
-        grid.field_data["time"] = np.array([0.5 * k])
-        grid.save(str(tmp_path / f"step_{k}.vtu"))
-    whole = []
-    original = polyhedral_io._read_whole
-    monkeypatch.setattr(polyhedral_io, "_read_whole", lambda path: whole.append(path) or original(path))
-    series = Series(str(tmp_path))
-    steps = [series.read(k) for k in range(3)]
-    assert len(whole) == 1 and steps[0].mesh is steps[2].mesh
-    for k, step in enumerate(steps):
-        alone = Series(str(tmp_path / f"step_{k}.vtu")).read(0)
-        for ours, theirs in ((step.fields.point_data, alone.fields.point_data),
-                             (step.fields.cell_data, alone.fields.cell_data),
-                             (step.fields.field_data, alone.fields.field_data)):
-            assert list(ours) == list(theirs)
-            for name in ours:
-                np.testing.assert_array_equal(ours[name], theirs[name])
-        assert step.fields.field_data["time"][0] == 0.5 * k
-    assert len(whole) == 4

@@ -20,9 +20,6 @@ reader (through pyvista, as the structured datasets are) and handed over as a me
 The read is noted as ``raw.convex_point_sets`` (how cells were read; ``inspect`` shows it).
 The split depends on the points and faces only: :class:`PolyhedralRead` takes it from a mesh
 of the series' :class:`MeshPool` built from the same ones, so a series splits its mesh once.
-A later ``.vtu`` step whose text outside its fields is that of a kept mesh's file
-(:mod:`._xml_fields`) is not read whole: only its fields are decoded, and the points, kept
-cells and split are the kept mesh's (:class:`DeferredRead`).
 """
 
 from __future__ import annotations
@@ -33,16 +30,14 @@ import io
 import mmap
 import re
 import warnings
-from dataclasses import dataclass
 from functools import cached_property, partial
 
 import numpy as np
 
 from ..errors import MeshWarning, UnreadableFileError, UnsupportedMeshError, short_text
 from ._meshio_adapter import CONVEX_POINT_SET, convex_point_sets, ensure_vtk_extras, new_mesh, read_with_meshio
-from ._xml_fields import CHUNK, read_fields, scan_layout
 
-__all__ = ["xml_holds_polyhedra", "legacy_holds_polyhedra", "read_polyhedral", "PolyhedralRead", "DeferredRead"]
+__all__ = ["xml_holds_polyhedra", "legacy_holds_polyhedra", "read_polyhedral", "PolyhedralRead"]
 
 #: VTK cell type of a polyhedron
 VTK_POLYHEDRON = 42
@@ -53,26 +48,16 @@ _QUAD_FACED = ("hexahedron", "wedge", "pyramid")
 
 
 def xml_holds_polyhedra(path: str) -> bool:
-    """True when a VTK XML file names polyhedron face arrays (of format 2.3 or before) in its XML.
-
-    Read in chunks (a chunk and the end of the one before it), up to the appended data if any:
-    the whole file is never held (nor mapped: mapped pages count in the process's memory).
-    """
-    names = (b'Name="faceoffsets"', b'Name="face_offsets"')
-    keep = max(len(b"<AppendedData"), *map(len, names)) - 1
-    tail = b""
+    """True when a VTK XML file names polyhedron face arrays (of format 2.3 or before) in its XML."""
     with open(path, "rb") as handle:
-        while True:
-            chunk = handle.read(CHUNK)
-            if not chunk:
-                return False
-            buf = tail + chunk
-            end = buf.find(b"<AppendedData")
-            if any(buf.find(name, 0, len(buf) if end < 0 else end) >= 0 for name in names):
-                return True
-            if end >= 0:
-                return False
-            tail = buf[-keep:]
+        try:
+            view = mmap.mmap(handle.fileno(), 0, access=mmap.ACCESS_READ)
+        except ValueError:  # an empty file
+            return False
+        with view:
+            end = view.find(b"<AppendedData")
+            end = len(view) if end < 0 else end
+            return any(view.find(name, 0, end) >= 0 for name in (b'Name="faceoffsets"', b'Name="face_offsets"'))
 
 
 def legacy_holds_polyhedra(path: str) -> bool:
@@ -153,14 +138,7 @@ def _polyhedron_faces(face_arrays: tuple, cells: np.ndarray):
 
 
 def read_polyhedral(path: str):
-    """Read a VTK file holding polyhedra as a meshio mesh (see the module notes): a
-    :class:`DeferredRead` for a ``.vtu`` file whose fields :mod:`._xml_fields` can read alone."""
-    layout = scan_layout(path) if path.lower().endswith(".vtu") else None
-    return _read_whole(path) if layout is None else DeferredRead(path, layout)
-
-
-def _read_whole(path: str):
-    """The file read with VTK's reader: a :class:`PolyhedralRead` (a meshio mesh without polyhedra)."""
+    """Read a VTK file holding polyhedra as a meshio mesh (see the module notes)."""
     import meshio._vtk_common as vtk_common
 
     from ..model.cells import LINEAR_CORNERS
@@ -207,76 +185,6 @@ def _read_whole(path: str):
                           int(np.count_nonzero(types == VTK_POLYHEDRON)))
 
 
-@dataclass(frozen=True, eq=False)
-class _Kept:
-    """What a mesh keeps of the read that built it: the split and the file's cells beside it."""
-
-    signature: str  # of the points and the cell and face arrays (:attr:`PolyhedralRead.signature`)
-    split: object
-    file_signature: str | None  # of the file's text outside its fields (:mod:`._xml_fields`), if laid out
-    points: np.ndarray
-    blocks: list
-    rows_of: list
-    rows: np.ndarray
-    n_poly: int
-
-    def with_fields(self, path: str, point_data: dict, cell_data: dict, field_data: dict) -> "PolyhedralRead":
-        """A read of a file with this mesh and the given fields."""
-        read = PolyhedralRead(path, self.points, self.blocks, self.rows_of, [], (), point_data, cell_data,
-                              field_data, self.n_poly, rows=self.rows)
-        read.__dict__["signature"] = self.signature
-        read.file_signature = self.file_signature
-        read._split = self.split
-        return read
-
-
-class DeferredRead:
-    """A ``.vtu`` file with polyhedra, read when the series' mesh pool is known (a meshio-style mesh).
-
-    :meth:`use_pool` decodes only the fields when a kept mesh was read from a file with the same
-    text outside its fields (the same points, cells and faces); otherwise, or when an attribute
-    is asked first, the file is read whole (:class:`PolyhedralRead`, or a meshio mesh when it
-    holds no polyhedron after all).
-    """
-
-    def __init__(self, path: str, layout):
-        self.path, self._layout, self._read = path, layout, None
-
-    def use_pool(self, pool) -> None:
-        """Take the kept mesh's cells and split with this file's fields, or read the file whole."""
-        for mesh in pool or ():
-            kept = mesh.memo(PolyhedralRead._KEY, lambda: None, keep=False)
-            if kept is not None and kept.file_signature == self._layout.signature:
-                fields = read_fields(self.path, self._layout)
-                if fields is not None:
-                    self._read = kept.with_fields(self.path, *fields)
-                    return
-        if hasattr(self._whole, "use_pool"):
-            self._whole.use_pool(pool)
-
-    @property
-    def field_data(self) -> dict:
-        """The file's field data (a step's time, when the series asks before reading it), decoded alone."""
-        if self._read is None:
-            fields = read_fields(self.path, self._layout)
-            if fields is not None:
-                return fields[2]
-        return self._whole.field_data
-
-    @property
-    def _whole(self):
-        if self._read is None:
-            self._read = _read_whole(self.path)
-            if isinstance(self._read, PolyhedralRead):
-                self._read.file_signature = self._layout.signature
-        return self._read
-
-    def __getattr__(self, name):
-        if name.startswith("_"):
-            raise AttributeError(name)
-        return getattr(self._whole, name)
-
-
 class PolyhedralRead:
     """A file with polyhedra as read, before and after the split (a meshio-style mesh).
 
@@ -289,17 +197,13 @@ class PolyhedralRead:
 
     _KEY = "polyhedra_split"
 
-    def __init__(self, path, points, blocks, rows_of, streams, made_from, point_data, cell_data, field_data, n_poly,
-                 *, rows=None):
+    def __init__(self, path, points, blocks, rows_of, streams, made_from, point_data, cell_data, field_data, n_poly):
         self.path, self._points, self._blocks, self._rows_of = path, points, blocks, rows_of
         self._streams, self._made_from = streams, made_from
-        if rows is None:  # input rows of the split cells
-            rows = np.concatenate([rows for _, rows in streams]).astype(np.int64)
-        self._rows = rows
+        self._rows = np.concatenate([rows for _, rows in streams]).astype(np.int64)  # input rows of the split cells
         self._point_data, self._cell_data = point_data, cell_data
         self.field_data, self.n_poly = field_data, n_poly
         self._split = None
-        self.file_signature = None  # set by a DeferredRead: kept with the split
 
     @cached_property
     def signature(self) -> str:
@@ -315,8 +219,8 @@ class PolyhedralRead:
         """Take the split of a kept mesh of ``pool`` built from the same points and faces."""
         for mesh in pool or ():
             kept = mesh.memo(self._KEY, lambda: None, keep=False)
-            if kept is not None and kept.signature == self.signature:
-                self._split = kept.split
+            if kept is not None and kept[0] == self.signature:
+                self._split = kept[1]
                 self._drop_faces()
                 return
 
@@ -326,10 +230,7 @@ class PolyhedralRead:
         from ..model._faces import SPLIT_FACES
 
         split = self.split
-        # the input points as a view of the split's (which starts with them), not a second copy
-        points = self._points if split.points is None else split.points[:split.n_points]
-        mesh.memo(self._KEY, lambda: _Kept(self.signature, split, self.file_signature, points, self._blocks,
-                                           self._rows_of, self._rows, self.n_poly))
+        mesh.memo(self._KEY, lambda: (self.signature, split))
         if (split.neighbours is not None and len(mesh.blocks) == 1
                 and mesh.blocks[0].connectivity is split.tetra):
             mesh.memo(SPLIT_FACES, lambda: split.neighbours)
