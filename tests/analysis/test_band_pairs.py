@@ -47,3 +47,35 @@ def test_band_pairs_from_neighbour_rows_are_the_mesh_face_pairs(kind, periodic, 
         assert found.shared_labels[np.flatnonzero(x > 0.95)].min() == 0
     assert np.array_equal(found.shared_labels, again.shared_labels)
     assert np.array_equal(found.table["volume"].to_numpy(), again.table["volume"].to_numpy())
+
+
+def test_far_band_goes_to_the_nearest_assigned_cell_over_the_whole_band():
+    # the graph of pairs with an unassigned end gives every unassigned cell the nearest assigned
+    # cell over the graph of every band pair: scipy's multi-source Dijkstra on the whole band [lib]
+    from scipy import sparse
+    from scipy.sparse import csgraph
+
+    m = grid_mesh((60, 4, 4), kind="tetra", jitter=0.2, seed=5)
+    x = m.cell_centroids[:, 0]
+    c = np.where((x < 0.1) | (x > 0.9), 1.0, np.where(x < 0.7, 0.3, 0.0))
+    cells = np.flatnonzero(c > 1e-3)
+    local = np.full(m.n_cells + 1, cells.size)
+    local[cells] = np.arange(cells.size)
+    neighbours = np.take(local, neighbour_table(m)[cells])
+    near_c = c[cells]
+    label = np.where(near_c > 0.5, (x[cells] > 0.5).astype(np.int64), -1)
+    shared, root, far = _band_sharing.share_band(label, near_c, neighbours, np.empty((0, 2), np.int64))
+    assert far
+    got, _ = _band_sharing.finish_far_band(m, cells, label, shared, root, [], neighbours)
+
+    pairs = _band_sharing._near_band_pairs(neighbours, label < 0)
+    X = m.cell_centroids[cells]
+    length = np.linalg.norm(X[pairs[:, 0]] - X[pairs[:, 1]], axis=1)
+    graph = sparse.coo_matrix((length, (pairs[:, 0], pairs[:, 1])), shape=(cells.size, cells.size)).tocsr()
+    sources = np.flatnonzero(shared >= 0)
+    dist, _, origin = csgraph.dijkstra(graph, directed=False, indices=sources, min_only=True,
+                                       return_predecessors=True)
+    todo = (shared < 0) & np.isfinite(dist)
+    assert np.count_nonzero(todo) > 100
+    np.testing.assert_array_equal(got[todo], shared[origin[todo]])
+    np.testing.assert_array_equal(got[~todo], shared[~todo])

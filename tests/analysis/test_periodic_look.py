@@ -7,6 +7,7 @@ own evaluation) against fields that are not (c = x; a drop with a uniform matrix
 import warnings
 
 import numpy as np
+import pytest
 
 from phasegauge.analysis.droplets import looks_periodic
 from phasegauge.meshgen import grid_mesh
@@ -105,3 +106,24 @@ def test_polyhedral_mesh_one_cell_thick_is_not_periodic_across_its_thickness(tmp
     assert mesh.cell_parents is not None
     x, y = mesh.points[:, 0], mesh.points[:, 1]
     assert looks_periodic(mesh, 0.5 + 0.4 * np.cos(2 * np.pi * x) * y) == ["x"]
+
+
+@pytest.mark.parametrize("layers", [1, 2, 3])
+def test_split_cells_spanning_both_planes_checked_as_every_cell_is(tmp_path, layers):
+    # the probe of a few whole cells answers as the check of every cell: a hexahedron spans both
+    # planes of its axis only when the mesh is one cell thick along it (elementary geometry)
+    import warnings
+
+    from phasegauge.analysis._periodic_look import _every_cell_spans
+    from phasegauge.io import Series
+    from phasegauge.meshgen import to_polyhedral_grid
+
+    hexes = grid_mesh((4, 3, layers), bounds=[(0, 1), (0, 1), (0, 0.05 * layers)])
+    path = str(tmp_path / "slab_0.vtu")
+    to_polyhedral_grid(hexes).cast_to_unstructured_grid().save(path)
+    with warnings.catch_warnings():
+        warnings.simplefilter("ignore")
+        mesh = Series(path).read(0).mesh
+    z = mesh.points[:, 2]
+    low, high = np.flatnonzero(np.isclose(z, 0.0)), np.flatnonzero(np.isclose(z, 0.05 * layers))
+    assert _every_cell_spans(mesh, low, high) == (layers == 1)

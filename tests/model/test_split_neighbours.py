@@ -119,3 +119,35 @@ def test_a_polyhedral_file_gives_its_mesh_the_neighbours(tmp_path):
     again = Mesh(mesh.points, [("tetra", mesh.blocks[0].connectivity.copy())])
     assert np.array_equal(mesh.face_pairs, again.face_pairs)
     assert np.array_equal(mesh.boundary_faces[0], again.boundary_faces[0])
+
+
+@pytest.mark.parametrize("damage", [None, "face twice", "face turned", "face missing"])
+def test_edge_twins_are_each_edge_run_back_in_its_cell(damage):
+    # each position's twin found by a Python dictionary of every cell's directed edges; a stream
+    # whose cells are not closed, consistently oriented surfaces has none (None)
+    from phasegauge.model._split_neighbours import edge_twins
+
+    m = grid_mesh((3, 2, 2), kind="hexahedron", jitter=0.2, seed=4)
+    points, offsets, face_cell = cell_face_stream("hexahedron", m.blocks[0].connectivity)
+    faces = [list(points[offsets[i]:offsets[i + 1]]) for i in range(offsets.size - 1)]
+    cells = list(face_cell)
+    if damage == "face twice":
+        faces.insert(7, faces[6])
+        cells.insert(7, cells[6])
+    elif damage == "face turned":
+        faces[6] = faces[6][::-1]
+    elif damage == "face missing":
+        del faces[6], cells[6]
+    stream = np.array([p for f in faces for p in f])
+    nxt = np.concatenate([np.roll(np.arange(len(f)), -1) + sum(len(g) for g in faces[:i]) for i, f in enumerate(faces)])
+    edge_cell = np.repeat(np.array(cells), [len(f) for f in faces])
+    twin = edge_twins(stream, nxt, edge_cell, m.n_points)
+    if damage is not None:
+        assert twin is None
+        return
+    where = defaultdict(list)
+    for position, (a, b, c) in enumerate(zip(stream, stream[nxt], edge_cell)):
+        where[(c, a, b)].append(position)
+    expected = [where[(c, b, a)] for a, b, c in zip(stream, stream[nxt], edge_cell)]
+    assert all(len(e) == 1 for e in expected)
+    np.testing.assert_array_equal(twin, [e[0] for e in expected])

@@ -162,19 +162,24 @@ def share_band(label: np.ndarray, c: np.ndarray, neighbours: np.ndarray, extra: 
 def finish_far_band(mesh: Mesh, cells: np.ndarray, label: np.ndarray, shared: np.ndarray, root: np.ndarray,
                      links, neighbours: np.ndarray | None = None) -> tuple[np.ndarray, np.ndarray]:
     """Band cells beyond the rings (a wide plateau): each goes to the nearest assigned cell along
-    centroid distances, over the mesh-wide band graph; returns the local ``shared`` and ``root``.
+    centroid distances, over the band graph; returns the local ``shared`` and ``root``.
 
     ``neighbours``: the near cells' face neighbours in local numbers (as :func:`share_band`); the
     band's face pairs are then read from them rather than from all of ``mesh.face_pairs``.
+
+    The graph holds only the face pairs with a cell not yet assigned at one end or both: a
+    shortest path from an unassigned cell to the nearest assigned one runs through unassigned
+    cells up to its last step (the first assigned cell on it is at least as near), so the
+    distances are those over every pair of the band, with a quarter of the pairs on a wide plateau.
     """
     extra_pairs = np.concatenate([p for p, _, _ in links]) if links else np.empty((0, 2), np.int64)
+    open_local = shared < 0  # not assigned by the rings
     if neighbours is not None and mesh.regular_grid is None:  # all in the near cells' local numbers
-        band_local = label < 0
-        pairs = _near_band_pairs(neighbours, band_local)
+        pairs = _near_band_pairs(neighbours, open_local)
         if extra_pairs.size:
             at = np.minimum(np.searchsorted(cells, extra_pairs), cells.size - 1)
             keep = (cells[at] == extra_pairs).all(axis=1)
-            keep &= band_local[at[:, 0]] | band_local[at[:, 1]]
+            keep &= open_local[at[:, 0]] | open_local[at[:, 1]]
             pairs = np.concatenate([pairs, at[keep]])
         shared, root = shared.copy(), root.copy()
         _finish_band_by_distance(mesh, pairs, shared, root, extra_pairs, cells=cells)
@@ -182,8 +187,8 @@ def finish_far_band(mesh: Mesh, cells: np.ndarray, label: np.ndarray, shared: np
     n = mesh.n_cells
     member = np.zeros(n, dtype=bool)
     member[cells] = True
-    band = np.zeros(n, dtype=bool)
-    band[cells[label < 0]] = True
+    band = np.zeros(n, dtype=bool)  # the cells not assigned by the rings
+    band[cells[open_local]] = True
     pairs = _band_face_pairs(mesh, member, band)
     if extra_pairs.size:
         keep = member[extra_pairs[:, 0]] & member[extra_pairs[:, 1]]

@@ -23,22 +23,26 @@ MIN_VARIATION = 1e-3
 
 def _boundary_point_pairs(mesh: Mesh, axis: int):
     """Points on the low and high boundary planes of ``axis`` paired by their other coordinates, or None."""
-    points = mesh.points[mesh.used_points]
     used = mesh.used_points
+    coordinate = mesh.points[used, axis]  # the axis's column only: no copy of every used point
     lo, hi = mesh.bounds[0, axis], mesh.bounds[1, axis]
     span = hi - lo
     if not span > 0:
         return None
     tol = 1e-9 * max(float(np.ptp(mesh.bounds, axis=0).max()), 1e-300)
-    low = np.flatnonzero(np.abs(points[:, axis] - lo) <= tol)
-    high = np.flatnonzero(np.abs(points[:, axis] - hi) <= tol)
-    if len(low) < 2 or len(low) != len(high) or len(low) + len(high) == len(points):
+    low = np.flatnonzero(np.abs(coordinate - lo) <= tol)
+    high = np.flatnonzero(np.abs(coordinate - hi) <= tol)
+    if len(low) < 2 or len(low) != len(high) or len(low) + len(high) == len(coordinate):
         return None  # no pairs, or no point between the planes (a mesh one cell thick along the axis)
     if mesh.cell_parents is not None and _every_cell_spans(mesh, used[low], used[high]):
         return None  # one cell thick with split cells: their added centres lie between the planes
     others = [a for a in range(3) if a != axis]
-    key_lo = np.round(points[low][:, others] / (1e3 * tol)).astype(np.int64)
-    key_hi = np.round(points[high][:, others] / (1e3 * tol)).astype(np.int64)
+
+    def other_coordinates(at):
+        return mesh.points[used[at]][:, others]
+
+    key_lo = np.round(other_coordinates(low) / (1e3 * tol)).astype(np.int64)
+    key_hi = np.round(other_coordinates(high) / (1e3 * tol)).astype(np.int64)
     order_lo = np.lexsort(key_lo.T[::-1])
     order_hi = np.lexsort(key_hi.T[::-1])
     if not np.array_equal(key_lo[order_lo], key_hi[order_hi]):
@@ -46,11 +50,11 @@ def _boundary_point_pairs(mesh: Mesh, axis: int):
     # the next plane inside the low boundary (the lowest coordinate beyond the boundary's round-off),
     # paired the same way (None when the mesh has no such plane: an unstructured mesh)
     inner = None
-    beyond = points[:, axis][points[:, axis] > lo + tol]
+    beyond = coordinate[coordinate > lo + tol]
     if beyond.size and beyond.min() < hi - tol:
-        nxt = np.flatnonzero(np.abs(points[:, axis] - beyond.min()) <= tol)
+        nxt = np.flatnonzero(np.abs(coordinate - beyond.min()) <= tol)
         if len(nxt) == len(low):
-            key_in = np.round(points[nxt][:, others] / (1e3 * tol)).astype(np.int64)
+            key_in = np.round(other_coordinates(nxt) / (1e3 * tol)).astype(np.int64)
             order_in = np.lexsort(key_in.T[::-1])
             if np.array_equal(key_in[order_in], key_lo[order_lo]):
                 inner = used[nxt[order_in]]
@@ -58,10 +62,23 @@ def _boundary_point_pairs(mesh: Mesh, axis: int):
 
 
 def _every_cell_spans(mesh: Mesh, low: np.ndarray, high: np.ndarray) -> bool:
-    """Whether every whole cell (:attr:`Mesh.cell_parents`) has a corner on both boundary planes."""
+    """Whether every whole cell (:attr:`Mesh.cell_parents`) has a corner on both boundary planes.
+
+    A few whole cells (the first, the middle and the last one's pieces) are looked at first: on a
+    mesh more than one cell thick one of them does not span, and the pieces' corners of the whole
+    mesh are not gathered.
+    """
     on_low = np.zeros(mesh.n_points, dtype=bool)
     on_high = np.zeros(mesh.n_points, dtype=bool)
     on_low[low], on_high[high] = True, True
+    parents = np.asarray(mesh.cell_parents)
+    starts = np.cumsum([0] + [len(block.connectivity) for block in mesh.blocks])
+    for probe in {int(parents[0]), int(parents[parents.size // 2]), int(parents[-1])}:
+        pieces = np.flatnonzero(parents == probe)
+        corners = [mesh.blocks[b].connectivity[pieces[(pieces >= starts[b]) & (pieces < starts[b + 1])] - starts[b]]
+                   for b in range(len(mesh.blocks))]
+        if not all(any(flags[c].any() for c in corners) for flags in (on_low, on_high)):
+            return False
     touches = [np.concatenate([flags[block.connectivity].any(axis=1) for block in mesh.blocks])
                for flags in (on_low, on_high)]
     parents = np.asarray(mesh.cell_parents, dtype=np.intp)

@@ -67,22 +67,28 @@ def edge_twins(face_points: np.ndarray, nxt: np.ndarray, edge_cell: np.ndarray, 
 
 
 def _chunk_twins(a: np.ndarray, b: np.ndarray, cell: np.ndarray, bits: int) -> np.ndarray | None:
-    """Twins within one run of whole cells (positions local to the run)."""
+    """Twins within one run of whole cells (positions local to the run).
+
+    One sort of the undirected edges ``(min, max)``, ties by position (so by cell): where every
+    edge of a cell is run once each way, the sorted entries pair up two by two, each pair one
+    cell's edge in both directions, and no two pairs in a row are the same cell's edge.
+    """
     m = a.size
-    forward = (a.astype(np.int64) << np.int64(bits)) | b
-    backward = (b.astype(np.int64) << np.int64(bits)) | a
-    f_order, f_key = _sort_order(forward, 2 * bits)
-    b_order, b_key = _sort_order(backward, 2 * bits)
-    # each directed edge once per cell: equal keys next to each other belong to different cells
-    # (positions, so cells, increase within a key), and the reversed edges are the same multiset
-    if not np.array_equal(f_key, b_key):
+    if m % 2:
         return None
-    f_cell, b_cell = cell[f_order], cell[b_order]
-    same = f_key[1:] == f_key[:-1]
-    if np.any(same & (f_cell[1:] == f_cell[:-1])) or not np.array_equal(f_cell, b_cell):
+    key = np.minimum(a, b).astype(np.int64)
+    key <<= np.int64(bits)
+    key |= np.maximum(a, b)
+    order, key = _sort_order(key, 2 * bits)
+    first, second = order[0::2], order[1::2]
+    if not (np.array_equal(key[0::2], key[1::2]) and np.array_equal(cell[first], cell[second])
+            and np.array_equal(a[first], b[second])):
         return None
+    if np.any((key[2::2] == key[1:-1:2]) & (cell[first[1:]] == cell[second[:-1]])):
+        return None  # one cell's edge more than once each way
     twin = np.empty(m, dtype=np.int64)
-    twin[f_order] = b_order
+    twin[first] = second
+    twin[second] = first
     return twin
 
 

@@ -209,6 +209,7 @@ def analyse_step(step, options, *, contour_dir: str | None = None, reported_mesh
 
             write_contour(contour, os.path.join(contour_dir, f"interface_{step.index:06d}.vtu"), time=step.time,
                           step=step.index)
+    extremes = None  # c's corner extremes of every cell (16 bytes a cell): read by the contour and widths only
     if "droplets" in options.analyses:
         low, high, tail = plateaus  # droplets measured between the bulk values the widths used
         found = droplets_mod.label_droplets(
