@@ -88,7 +88,7 @@ def test_the_command_turns_numpys_huge_page_advice_off_unless_the_user_set_it(mo
             monkeypatch.delenv("NUMPY_MADVISE_HUGEPAGE", raising=False)
         else:
             monkeypatch.setenv("NUMPY_MADVISE_HUGEPAGE", given)
-        CliRunner().invoke(main, ["samples", "list"])
+        assert CliRunner().invoke(main, ["samples", "--list"]).exit_code == 0
         assert os.environ["NUMPY_MADVISE_HUGEPAGE"] == expected
     # numpy is not imported before the group's callback runs (else the switch came too late)
     code = "import sys, phasegauge.cli; print('numpy' in sys.modules)"
