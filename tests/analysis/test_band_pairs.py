@@ -40,7 +40,7 @@ def test_band_pairs_from_neighbour_rows_are_the_mesh_face_pairs(kind, periodic, 
     assert far  # the plateau is wider than the rings: shared by distance
     # the same labelling through the mesh-wide path (pairs from all of the mesh's face pairs)
     monkeypatch.setattr("phasegauge.analysis._labelling.finish_far_band",
-                        lambda *a, **k: original(*a[:6]))
+                        lambda *a, **k: original(*a[:5]))
     again = label_droplets(m, c, periodic=periodic)
     assert found.count == again.count == (1 if periodic else 2)
     if periodic:  # the band reaches across the boundary (its pairs' lengths are cell sizes there)
@@ -66,7 +66,7 @@ def test_far_band_goes_to_the_nearest_assigned_cell_over_the_whole_band():
     label = np.where(near_c > 0.5, (x[cells] > 0.5).astype(np.int64), -1)
     shared, root, far = _band_sharing.share_band(label, near_c, neighbours, np.empty((0, 2), np.int64))
     assert far
-    got, _ = _band_sharing.finish_far_band(m, cells, label, shared, root, [], neighbours)
+    got, _ = _band_sharing.finish_far_band(m, cells, shared, root, [], neighbours)
 
     pairs = _band_sharing._near_band_pairs(neighbours, label < 0)
     X = m.cell_centroids[cells]

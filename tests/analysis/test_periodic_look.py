@@ -112,8 +112,6 @@ def test_polyhedral_mesh_one_cell_thick_is_not_periodic_across_its_thickness(tmp
 def test_split_cells_spanning_both_planes_checked_as_every_cell_is(tmp_path, layers):
     # the probe of a few whole cells answers as the check of every cell: a hexahedron spans both
     # planes of its axis only when the mesh is one cell thick along it (elementary geometry)
-    import warnings
-
     from phasegauge.analysis._periodic_look import _every_cell_spans
     from phasegauge.io import Series
     from phasegauge.meshgen import to_polyhedral_grid
@@ -127,3 +125,36 @@ def test_split_cells_spanning_both_planes_checked_as_every_cell_is(tmp_path, lay
     z = mesh.points[:, 2]
     low, high = np.flatnonzero(np.isclose(z, 0.0)), np.flatnonzero(np.isclose(z, 0.05 * layers))
     assert _every_cell_spans(mesh, low, high) == (layers == 1)
+
+
+def test_a_cell_off_the_probed_ones_that_does_not_span_is_found(tmp_path):
+    # the probed whole cells span both planes but another cell does not (its corners taken off the
+    # low plane's list): the check of every cell answers False, as counting per whole cell does
+    from phasegauge.analysis._periodic_look import _every_cell_spans
+    from phasegauge.io import Series
+    from phasegauge.meshgen import to_polyhedral_grid
+
+    path = str(tmp_path / "slab_0.vtu")
+    to_polyhedral_grid(grid_mesh((4, 3, 1), bounds=[(0, 1), (0, 1), (0, 0.05)])).cast_to_unstructured_grid().save(path)
+    with warnings.catch_warnings():
+        warnings.simplefilter("ignore")
+        mesh = Series(path).read(0).mesh
+    z = mesh.points[:, 2]
+    low, high = np.flatnonzero(np.isclose(z, 0.0)), np.flatnonzero(np.isclose(z, 0.05))
+    parents = np.asarray(mesh.cell_parents)
+    conn = np.concatenate([block.connectivity.ravel() for block in mesh.blocks])  # the split: tetrahedra only
+    corners = conn.reshape(parents.size, -1)
+
+    def points_of(cell):
+        return np.unique(corners[parents == cell])
+
+    probes = {int(parents[0]), int(parents[parents.size // 2]), int(parents[-1])}
+    for target in sorted(set(parents.tolist()) - probes):
+        kept = np.setdiff1d(low, points_of(target))
+        if all(np.intersect1d(points_of(p), kept).size for p in probes):
+            break
+    spans = [np.intersect1d(points_of(cell), kept).size > 0 and np.intersect1d(points_of(cell), high).size > 0
+             for cell in np.unique(parents)]
+    assert not all(spans) and sum(spans) == len(spans) - 1
+    assert _every_cell_spans(mesh, kept, high) is False
+    assert _every_cell_spans(mesh, low, high) is True

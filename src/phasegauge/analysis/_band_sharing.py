@@ -159,7 +159,7 @@ def share_band(label: np.ndarray, c: np.ndarray, neighbours: np.ndarray, extra: 
     return label[root], root, far
 
 
-def finish_far_band(mesh: Mesh, cells: np.ndarray, label: np.ndarray, shared: np.ndarray, root: np.ndarray,
+def finish_far_band(mesh: Mesh, cells: np.ndarray, shared: np.ndarray, root: np.ndarray,
                      links, neighbours: np.ndarray | None = None) -> tuple[np.ndarray, np.ndarray]:
     """Band cells beyond the rings (a wide plateau): each goes to the nearest assigned cell along
     centroid distances, over the band graph; returns the local ``shared`` and ``root``.

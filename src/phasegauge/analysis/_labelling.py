@@ -211,7 +211,7 @@ def _share(mesh: Mesh, near: _NearCells, label: np.ndarray, links, local_links) 
     extra = extra[(extra < near.k).all(axis=1)]
     shared, root, far = share_band(label, near.c, near.neighbours, extra)
     if far:  # a wide plateau: the rest by distance along the centroids
-        shared, root = finish_far_band(mesh, near.cells, label, shared, root, links, near.neighbours)
+        shared, root = finish_far_band(mesh, near.cells, shared, root, links, near.neighbours)
     return shared, root
 
 

@@ -10,6 +10,7 @@ from __future__ import annotations
 import numpy as np
 
 from ..model.axes import AXIS_NAMES
+from ..model.corners import corner_extremes
 from ..model.mesh import Mesh
 
 __all__ = ["looks_periodic", "ROUNDOFF"]
@@ -71,17 +72,13 @@ def _every_cell_spans(mesh: Mesh, low: np.ndarray, high: np.ndarray) -> bool:
     on_low = np.zeros(mesh.n_points, dtype=bool)
     on_high = np.zeros(mesh.n_points, dtype=bool)
     on_low[low], on_high[high] = True, True
-    parents = np.asarray(mesh.cell_parents)
-    starts = np.cumsum([0] + [len(block.connectivity) for block in mesh.blocks])
+    parents = np.asarray(mesh.cell_parents, dtype=np.intp)
     for probe in {int(parents[0]), int(parents[parents.size // 2]), int(parents[-1])}:
         pieces = np.flatnonzero(parents == probe)
-        corners = [mesh.blocks[b].connectivity[pieces[(pieces >= starts[b]) & (pieces < starts[b + 1])] - starts[b]]
-                   for b in range(len(mesh.blocks))]
-        if not all(any(flags[c].any() for c in corners) for flags in (on_low, on_high)):
+        if not all(corner_extremes(mesh, flags, pieces).high.any() for flags in (on_low, on_high)):
             return False
     touches = [np.concatenate([flags[block.connectivity].any(axis=1) for block in mesh.blocks])
                for flags in (on_low, on_high)]
-    parents = np.asarray(mesh.cell_parents, dtype=np.intp)
     cells = np.bincount(parents) > 0
     return bool(np.all((np.bincount(parents, weights=touches[0]) > 0)[cells])
                 and np.all((np.bincount(parents, weights=touches[1]) > 0)[cells]))
