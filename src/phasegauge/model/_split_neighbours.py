@@ -202,23 +202,26 @@ def _join_centred(out, f, g, local_f, local_g, face_offsets, tet_of_position) ->
 
 def ordered_rows(neighbours: np.ndarray) -> np.ndarray:
     """Each row's neighbours in the order of a neighbour table built from sorted face pairs: the
-    higher cell numbers first, then the lower, each increasing, -1 at the end (in place)."""
+    higher cell numbers first, then the lower, each increasing, -1 at the end (in place).
+
+    Sorted as unsigned keys of the same width: a higher number is itself, a lower one plus the
+    number of rows, and -1 wraps to the largest key; no key is rebuilt after the sort but the
+    lower ones (the largest key read signed is -1 again).
+    """
     n = neighbours.shape[0]
-    chunk = CHUNK * 8
-    for lo in range(0, n, chunk):
-        nb = neighbours[lo:lo + chunk]
-        own = np.arange(lo, lo + nb.shape[0], dtype=nb.dtype)
+    unsigned = np.dtype(f"u{neighbours.itemsize}")
+    shift = unsigned.type(n)
+    for lo in range(0, n, CHUNK):  # chunks that stay in cache
+        nb = neighbours[lo:lo + CHUNK]
+        own = np.arange(lo, lo + nb.shape[0], dtype=unsigned)
         keys = []
         for j in range(nb.shape[1]):
-            col = nb[:, j]
-            key = col.astype(index_dtype(2 * n))
-            key[col < own] += n
-            key[col < 0] = 2 * n
+            key = nb[:, j].astype(unsigned)  # -1 (a boundary face) becomes the largest key
+            np.add(key, shift, out=key, where=key < own)  # the lower numbers after the higher
             keys.append(key)
         for j, key in enumerate(sort_columns(keys) if len(keys) <= 4 else list(np.sort(np.stack(keys, 1), 1).T)):
-            boundary = key >= 2 * n
-            key[key >= n] -= n
-            key[boundary] = -1
+            key = key.view(neighbours.dtype)
+            np.subtract(key, n, out=key, where=key >= n)
             nb[:, j] = key
     return neighbours
 

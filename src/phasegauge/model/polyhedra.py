@@ -278,7 +278,10 @@ def split_polyhedra(points: np.ndarray, face_points, face_offsets, face_cell, n_
     centred_groups = []  # per face size: what the tetrahedra's neighbours across the faces need
     for k in np.unique(sizes[sizes >= 4]):
         faces = np.flatnonzero(sizes == k)
-        rows = face_points[face_offsets[faces][:, None] + np.arange(k)]
+        if faces.size * k == face_points.size:  # every face of this size: the stream itself, k a row
+            rows = face_points.reshape(-1, k)
+        else:
+            rows = face_points[face_offsets[faces][:, None] + np.arange(k)]
         if twin is not None and k < 128:  # where each sorted corner sits in its face, for the neighbours
             rows, local = sorted_with_places(rows)
         else:
@@ -310,7 +313,6 @@ def split_polyhedra(points: np.ndarray, face_points, face_offsets, face_cell, n_
         centre_parts.append(face_points[distinct])
         centre_counts.append(np.bincount(edge_cell[distinct], minlength=n_cells))
         del distinct
-    del edge_cell
     centre_points = np.concatenate(centre_parts).astype(index_dtype(n_points), copy=False)  # kept with the split
     del centre_parts
     centre_offsets = np.concatenate([[0], np.cumsum(np.concatenate(centre_counts))]).astype(np.int64)
@@ -329,13 +331,17 @@ def split_polyhedra(points: np.ndarray, face_points, face_offsets, face_cell, n_
         part[:, 0], part[:, 1], part[:, 2] = face_points[p + 1], face_points[p], face_points[p + 2]
         source[:triangles.size] = face_cell[triangles]
         part[:, 3] = cell_centre[source[:triangles.size]]
-    if corner.size:
+    if corner.size == face_points.size:  # every face centred: a tetrahedron for each stream position
+        _fill_centred(tetra, source, face_points, nxt, np.repeat(face_centre, sizes), edge_cell,
+                      n_points + n_face_centres)
+    elif corner.size:
         face_of = np.repeat(np.arange(sizes.size, dtype=small)[centred], sizes[centred])
         part = tetra[triangles.size:]
         part[:, 0], part[:, 1], part[:, 2] = face_points[nxt[corner]], face_points[corner], face_centre[face_of]
         source[triangles.size:] = face_cell[face_of]
         del face_of
         part[:, 3] = cell_centre[source[triangles.size:]]
+    del edge_cell
     neighbours = None
     if twin is not None:
         neighbours = _tetra_neighbours(face_points, face_offsets, sizes, nxt, face_cell, twin, n_points,
@@ -368,6 +374,21 @@ def split_polyhedra(points: np.ndarray, face_points, face_offsets, face_cell, n_
                           reversed_cells=int(np.count_nonzero(turn)),
                           inverted_tetra=int(np.count_nonzero(volume < 0)), points=Y, neighbours=neighbours)
     return done
+
+
+def _fill_centred(tetra, source, face_points, nxt, centre_of_position, edge_cell, first_cell_centre: int) -> None:
+    """Rows ``(b, a, face centre, cell centre)`` of every stream position's edge ``a -> b`` and
+    their cells, in chunks of rows (each chunk's four columns written while it is in cache)."""
+    chunk = 1 << 16
+    for lo in range(0, tetra.shape[0], chunk):
+        hi = lo + chunk
+        part = tetra[lo:hi]
+        part[:, 0] = face_points[nxt[lo:hi]]
+        part[:, 1] = face_points[lo:hi]
+        part[:, 2] = centre_of_position[lo:hi]
+        cells = edge_cell[lo:hi]
+        source[lo:hi] = cells
+        np.add(cells, first_cell_centre, out=part[:, 3], dtype=np.int64, casting="unsafe")
 
 
 def _tetra_neighbours(face_points, face_offsets, sizes, nxt, face_cell, twin, n_points, centred_groups, triangles,
