@@ -106,9 +106,17 @@ class PolyhedraSplit:
         v = np.asarray(values, dtype=np.float64)
         if self.n_centres == 0:
             return np.zeros((0,) + v.shape[1:])
-        counts = np.diff(self.centre_offsets)
-        sums = np.add.reduceat(v[self.centre_points], self.centre_offsets[:-1], axis=0)
-        return sums / counts.reshape((-1,) + (1,) * (v.ndim - 1))
+        offsets = self.centre_offsets
+        out = np.empty((self.n_centres,) + v.shape[1:])
+        chunk = 1 << 14  # centres at a time: their corners' values stay in cache (the same sums)
+        for lo in range(0, self.n_centres, chunk):
+            hi = min(lo + chunk, self.n_centres)
+            first = offsets[lo]
+            corners = v[self.centre_points[first:offsets[hi]]]
+            sums = np.add.reduceat(corners, offsets[lo:hi] - first, axis=0)
+            counts = np.diff(offsets[lo:hi + 1])
+            np.divide(sums, counts.reshape((-1,) + (1,) * (v.ndim - 1)), out=out[lo:hi])
+        return out
 
 
 def cell_face_stream(cell_type: str, connectivity: np.ndarray) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
@@ -407,7 +415,7 @@ def _signed_volumes(Y: np.ndarray, tetra: np.ndarray) -> np.ndarray:
     """Signed volumes of the tetrahedra, coordinate column by column (small temporaries)."""
     columns = [np.ascontiguousarray(Y[:, i]) for i in range(3)]
     out = np.empty(tetra.shape[0])
-    chunk = 1 << 16
+    chunk = 1 << 14
     for lo in range(0, tetra.shape[0], chunk):
         t = tetra[lo:lo + chunk]
         a = [x[t[:, 0]] for x in columns]
