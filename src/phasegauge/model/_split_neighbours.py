@@ -228,12 +228,20 @@ def ordered_rows(neighbours: np.ndarray) -> np.ndarray:
 
 def sorted_with_places(rows: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
     """Each row sorted, and where each sorted entry was in its row: ``(sorted, local)``, ``local`` int8
-    (``sorted[i, j] == rows[i, local[i, j]]``; rows of non-negative integers, at most 127 wide)."""
-    k = rows.shape[1]
+    (``sorted[i, j] == rows[i, local[i, j]]``; rows of non-negative integers, at most 127 wide).
+
+    Rows are taken a chunk at a time, so that the packed keys stay in cache."""
+    n, k = rows.shape
     shift = np.int64(max(int(k - 1).bit_length(), 1))
-    keys = [(rows[:, j].astype(np.int64) << shift) | j for j in range(k)]
-    keys = sort_columns(keys) if k <= 4 else list(np.sort(np.stack(keys, 1), 1).T)
     mask = np.int64((1 << int(shift)) - 1)
-    local = np.stack([(key & mask).astype(np.int8) for key in keys], axis=1)
-    ordered = np.stack([(key >> shift).astype(rows.dtype) for key in keys], axis=1)
+    ordered = np.empty(rows.shape, dtype=rows.dtype)
+    local = np.empty(rows.shape, dtype=np.int8)
+    for lo in range(0, n, CHUNK):
+        part = rows[lo:lo + CHUNK]
+        keys = [(part[:, j].astype(np.int64) << shift) | j for j in range(k)]
+        keys = sort_columns(keys) if k <= 4 else list(np.sort(np.stack(keys, 1), 1).T)
+        for j, key in enumerate(keys):
+            local[lo:lo + CHUNK, j] = key & mask
+            key >>= shift
+            ordered[lo:lo + CHUNK, j] = key
     return ordered, local
