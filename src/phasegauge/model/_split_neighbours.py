@@ -136,13 +136,16 @@ def split_neighbours(face_points, face_offsets, sizes, nxt, face_cell, twin, n_p
     dtype = tet_of_position.dtype
     out = np.empty((n_tetra, 4), dtype=dtype)
     triangles = np.flatnonzero(sizes == 3)
-    prev = np.empty_like(nxt)
-    prev[nxt] = np.arange(nxt.size, dtype=nxt.dtype)
+    prev = np.arange(-1, nxt.size - 1, dtype=nxt.dtype)  # the position before, around its face
+    prev[face_offsets[:-1]] = face_offsets[1:] - 1
     if triangles.size == 0:
         # every face centred: the tetrahedra are numbered as the stream positions they stand on
-        out[:, 0] = twin  # the edge's twin in the cell
-        out[:, 1] = nxt  # around the face: the edges after and before
-        out[:, 2] = prev
+        for lo in range(0, n_tetra, CHUNK):  # a chunk of rows at a time (written while in cache)
+            part = out[lo:lo + CHUNK]
+            part[:, 0] = twin[lo:lo + CHUNK]  # the edge's twin in the cell
+            part[:, 1] = nxt[lo:lo + CHUNK]  # around the face: the edges after and before
+            part[:, 2] = prev[lo:lo + CHUNK]
+            part[:, 3] = -1
     else:
         pos = np.flatnonzero(np.repeat(sizes >= 4, sizes))
         tets = tet_of_position[pos]
@@ -155,8 +158,8 @@ def split_neighbours(face_points, face_offsets, sizes, nxt, face_cell, twin, n_p
         for j in range(3):  # a triangle's three edges: their twins in the cell
             out[tri, j] = tet_of_position[twin[start + j]]
         del start, tri
+        out[:, 3] = -1
     del prev
-    out[:, 3] = -1
     # across the faces between cells
     for faces, rows_sorted, local, grouped in centred_groups:
         matched = _matched_faces(rows_sorted, faces, face_cell, grouped)

@@ -403,6 +403,10 @@ def _tetra_neighbours(face_points, face_offsets, sizes, nxt, face_cell, twin, n_
                       corner, n_tetra):
     """The tetrahedra's face neighbours from the faces (:func:`._split_neighbours.split_neighbours`)."""
     dtype = index_dtype(n_tetra + 1)
+    if corner.size == face_points.size:  # every face centred: the tetrahedra in stream order
+        tet_of_position = np.arange(corner.size, dtype=dtype)
+        return split_neighbours(face_points, face_offsets, sizes, nxt, face_cell, twin, n_points, centred_groups,
+                                tet_of_position, n_tetra)
     tet_of_position = np.empty(face_points.size, dtype=dtype)
     tet_of_position[corner] = np.arange(triangles.size, triangles.size + corner.size, dtype=dtype)
     for j in range(3):
