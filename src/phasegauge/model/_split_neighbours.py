@@ -136,13 +136,16 @@ def split_neighbours(face_points, face_offsets, sizes, nxt, face_cell, twin, n_p
     dtype = tet_of_position.dtype
     out = np.empty((n_tetra, 4), dtype=dtype)
     triangles = np.flatnonzero(sizes == 3)
-    prev = np.empty_like(nxt)
-    prev[nxt] = np.arange(nxt.size, dtype=nxt.dtype)
+    prev = np.arange(-1, nxt.size - 1, dtype=nxt.dtype)  # the position before, around its face
+    prev[face_offsets[:-1]] = face_offsets[1:] - 1
     if triangles.size == 0:
         # every face centred: the tetrahedra are numbered as the stream positions they stand on
-        out[:, 0] = twin  # the edge's twin in the cell
-        out[:, 1] = nxt  # around the face: the edges after and before
-        out[:, 2] = prev
+        for lo in range(0, n_tetra, CHUNK):  # a chunk of rows at a time (written while in cache)
+            part = out[lo:lo + CHUNK]
+            part[:, 0] = twin[lo:lo + CHUNK]  # the edge's twin in the cell
+            part[:, 1] = nxt[lo:lo + CHUNK]  # around the face: the edges after and before
+            part[:, 2] = prev[lo:lo + CHUNK]
+            part[:, 3] = -1
     else:
         pos = np.flatnonzero(np.repeat(sizes >= 4, sizes))
         tets = tet_of_position[pos]
@@ -155,8 +158,8 @@ def split_neighbours(face_points, face_offsets, sizes, nxt, face_cell, twin, n_p
         for j in range(3):  # a triangle's three edges: their twins in the cell
             out[tri, j] = tet_of_position[twin[start + j]]
         del start, tri
+        out[:, 3] = -1
     del prev
-    out[:, 3] = -1
     # across the faces between cells
     for faces, rows_sorted, local, grouped in centred_groups:
         matched = _matched_faces(rows_sorted, faces, face_cell, grouped)
@@ -202,35 +205,46 @@ def _join_centred(out, f, g, local_f, local_g, face_offsets, tet_of_position) ->
 
 def ordered_rows(neighbours: np.ndarray) -> np.ndarray:
     """Each row's neighbours in the order of a neighbour table built from sorted face pairs: the
-    higher cell numbers first, then the lower, each increasing, -1 at the end (in place)."""
+    higher cell numbers first, then the lower, each increasing, -1 at the end (in place).
+
+    Sorted as unsigned keys of the same width: a higher number is itself, a lower one plus the
+    number of rows, and -1 wraps to the largest key; no key is rebuilt after the sort but the
+    lower ones (the largest key read signed is -1 again).
+    """
     n = neighbours.shape[0]
-    chunk = CHUNK * 8
-    for lo in range(0, n, chunk):
-        nb = neighbours[lo:lo + chunk]
-        own = np.arange(lo, lo + nb.shape[0], dtype=nb.dtype)
+    unsigned = np.dtype(f"u{neighbours.itemsize}")
+    shift = unsigned.type(n)
+    for lo in range(0, n, CHUNK):  # chunks that stay in cache
+        nb = neighbours[lo:lo + CHUNK]
+        own = np.arange(lo, lo + nb.shape[0], dtype=unsigned)
         keys = []
         for j in range(nb.shape[1]):
-            col = nb[:, j]
-            key = col.astype(index_dtype(2 * n))
-            key[col < own] += n
-            key[col < 0] = 2 * n
+            key = nb[:, j].astype(unsigned)  # -1 (a boundary face) becomes the largest key
+            np.add(key, shift, out=key, where=key < own)  # the lower numbers after the higher
             keys.append(key)
         for j, key in enumerate(sort_columns(keys) if len(keys) <= 4 else list(np.sort(np.stack(keys, 1), 1).T)):
-            boundary = key >= 2 * n
-            key[key >= n] -= n
-            key[boundary] = -1
+            key = key.view(neighbours.dtype)
+            np.subtract(key, n, out=key, where=key >= n)
             nb[:, j] = key
     return neighbours
 
 
 def sorted_with_places(rows: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
     """Each row sorted, and where each sorted entry was in its row: ``(sorted, local)``, ``local`` int8
-    (``sorted[i, j] == rows[i, local[i, j]]``; rows of non-negative integers, at most 127 wide)."""
-    k = rows.shape[1]
+    (``sorted[i, j] == rows[i, local[i, j]]``; rows of non-negative integers, at most 127 wide).
+
+    Rows are taken a chunk at a time, so that the packed keys stay in cache."""
+    n, k = rows.shape
     shift = np.int64(max(int(k - 1).bit_length(), 1))
-    keys = [(rows[:, j].astype(np.int64) << shift) | j for j in range(k)]
-    keys = sort_columns(keys) if k <= 4 else list(np.sort(np.stack(keys, 1), 1).T)
     mask = np.int64((1 << int(shift)) - 1)
-    local = np.stack([(key & mask).astype(np.int8) for key in keys], axis=1)
-    ordered = np.stack([(key >> shift).astype(rows.dtype) for key in keys], axis=1)
+    ordered = np.empty(rows.shape, dtype=rows.dtype)
+    local = np.empty(rows.shape, dtype=np.int8)
+    for lo in range(0, n, CHUNK):
+        part = rows[lo:lo + CHUNK]
+        keys = [(part[:, j].astype(np.int64) << shift) | j for j in range(k)]
+        keys = sort_columns(keys) if k <= 4 else list(np.sort(np.stack(keys, 1), 1).T)
+        for j, key in enumerate(keys):
+            local[lo:lo + CHUNK, j] = key & mask
+            key >>= shift
+            ordered[lo:lo + CHUNK, j] = key
     return ordered, local

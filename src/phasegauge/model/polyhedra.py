@@ -106,9 +106,17 @@ class PolyhedraSplit:
         v = np.asarray(values, dtype=np.float64)
         if self.n_centres == 0:
             return np.zeros((0,) + v.shape[1:])
-        counts = np.diff(self.centre_offsets)
-        sums = np.add.reduceat(v[self.centre_points], self.centre_offsets[:-1], axis=0)
-        return sums / counts.reshape((-1,) + (1,) * (v.ndim - 1))
+        offsets = self.centre_offsets
+        out = np.empty((self.n_centres,) + v.shape[1:])
+        chunk = 1 << 14  # centres at a time: their corners' values stay in cache (the same sums)
+        for lo in range(0, self.n_centres, chunk):
+            hi = min(lo + chunk, self.n_centres)
+            first = offsets[lo]
+            corners = v[self.centre_points[first:offsets[hi]]]
+            sums = np.add.reduceat(corners, offsets[lo:hi] - first, axis=0)
+            counts = np.diff(offsets[lo:hi + 1])
+            np.divide(sums, counts.reshape((-1,) + (1,) * (v.ndim - 1)), out=out[lo:hi])
+        return out
 
 
 def cell_face_stream(cell_type: str, connectivity: np.ndarray) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
@@ -278,7 +286,10 @@ def split_polyhedra(points: np.ndarray, face_points, face_offsets, face_cell, n_
     centred_groups = []  # per face size: what the tetrahedra's neighbours across the faces need
     for k in np.unique(sizes[sizes >= 4]):
         faces = np.flatnonzero(sizes == k)
-        rows = face_points[face_offsets[faces][:, None] + np.arange(k)]
+        if faces.size * k == face_points.size:  # every face of this size: the stream itself, k a row
+            rows = face_points.reshape(-1, k)
+        else:
+            rows = face_points[face_offsets[faces][:, None] + np.arange(k)]
         if twin is not None and k < 128:  # where each sorted corner sits in its face, for the neighbours
             rows, local = sorted_with_places(rows)
         else:
@@ -310,7 +321,6 @@ def split_polyhedra(points: np.ndarray, face_points, face_offsets, face_cell, n_
         centre_parts.append(face_points[distinct])
         centre_counts.append(np.bincount(edge_cell[distinct], minlength=n_cells))
         del distinct
-    del edge_cell
     centre_points = np.concatenate(centre_parts).astype(index_dtype(n_points), copy=False)  # kept with the split
     del centre_parts
     centre_offsets = np.concatenate([[0], np.cumsum(np.concatenate(centre_counts))]).astype(np.int64)
@@ -329,13 +339,17 @@ def split_polyhedra(points: np.ndarray, face_points, face_offsets, face_cell, n_
         part[:, 0], part[:, 1], part[:, 2] = face_points[p + 1], face_points[p], face_points[p + 2]
         source[:triangles.size] = face_cell[triangles]
         part[:, 3] = cell_centre[source[:triangles.size]]
-    if corner.size:
+    if corner.size == face_points.size:  # every face centred: a tetrahedron for each stream position
+        _fill_centred(tetra, source, face_points, nxt, np.repeat(face_centre, sizes), edge_cell,
+                      n_points + n_face_centres)
+    elif corner.size:
         face_of = np.repeat(np.arange(sizes.size, dtype=small)[centred], sizes[centred])
         part = tetra[triangles.size:]
         part[:, 0], part[:, 1], part[:, 2] = face_points[nxt[corner]], face_points[corner], face_centre[face_of]
         source[triangles.size:] = face_cell[face_of]
         del face_of
         part[:, 3] = cell_centre[source[triangles.size:]]
+    del edge_cell
     neighbours = None
     if twin is not None:
         neighbours = _tetra_neighbours(face_points, face_offsets, sizes, nxt, face_cell, twin, n_points,
@@ -370,10 +384,29 @@ def split_polyhedra(points: np.ndarray, face_points, face_offsets, face_cell, n_
     return done
 
 
+def _fill_centred(tetra, source, face_points, nxt, centre_of_position, edge_cell, first_cell_centre: int) -> None:
+    """Rows ``(b, a, face centre, cell centre)`` of every stream position's edge ``a -> b`` and
+    their cells, in chunks of rows (each chunk's four columns written while it is in cache)."""
+    chunk = 1 << 16
+    for lo in range(0, tetra.shape[0], chunk):
+        hi = lo + chunk
+        part = tetra[lo:hi]
+        part[:, 0] = face_points[nxt[lo:hi]]
+        part[:, 1] = face_points[lo:hi]
+        part[:, 2] = centre_of_position[lo:hi]
+        cells = edge_cell[lo:hi]
+        source[lo:hi] = cells
+        np.add(cells, first_cell_centre, out=part[:, 3], dtype=np.int64, casting="unsafe")
+
+
 def _tetra_neighbours(face_points, face_offsets, sizes, nxt, face_cell, twin, n_points, centred_groups, triangles,
                       corner, n_tetra):
     """The tetrahedra's face neighbours from the faces (:func:`._split_neighbours.split_neighbours`)."""
     dtype = index_dtype(n_tetra + 1)
+    if corner.size == face_points.size:  # every face centred: the tetrahedra in stream order
+        tet_of_position = np.arange(corner.size, dtype=dtype)
+        return split_neighbours(face_points, face_offsets, sizes, nxt, face_cell, twin, n_points, centred_groups,
+                                tet_of_position, n_tetra)
     tet_of_position = np.empty(face_points.size, dtype=dtype)
     tet_of_position[corner] = np.arange(triangles.size, triangles.size + corner.size, dtype=dtype)
     for j in range(3):
@@ -386,7 +419,7 @@ def _signed_volumes(Y: np.ndarray, tetra: np.ndarray) -> np.ndarray:
     """Signed volumes of the tetrahedra, coordinate column by column (small temporaries)."""
     columns = [np.ascontiguousarray(Y[:, i]) for i in range(3)]
     out = np.empty(tetra.shape[0])
-    chunk = 1 << 16
+    chunk = 1 << 14
     for lo in range(0, tetra.shape[0], chunk):
         t = tetra[lo:lo + chunk]
         a = [x[t[:, 0]] for x in columns]
