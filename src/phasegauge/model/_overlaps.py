@@ -4,7 +4,8 @@ cells whose measures add up to more than the region their boundary encloses.
 Such meshes read without error but count their phase twice where cells overlap (the phase
 volume grows, droplets split). Three checks, each exact or to rounding:
 
-* repeated cells: the same corner set twice in a block (exact, by sorting the corner rows);
+* repeated cells: the same corner set twice in a block (exact: a sum of 64-bit corner mixes
+  picks the few candidates, whose sorted corner rows are then compared);
 * crowded faces: a face (3D) or edge (2D) that more than two cells have (from the face grouping);
 * covered boundary faces: a face that only one cell has, whose outer side lies inside another
   cell (triangle and tetrahedron meshes); overlapping cells that share no face are found this way.
@@ -96,11 +97,15 @@ def _repeated_sets(connectivity: np.ndarray) -> int:
             for j in range(k):
                 total += _mixed(part[:, j])
             mix[lo:lo + _CHUNK] = total
+    again = _repeating(mix)
+    return 0 if again is None else _repeated_rows(sort_small_rows(connectivity[again]))
+
+
+def _repeating(mix: np.ndarray):
+    """Where ``mix`` holds a value that occurs more than once (a mask), or None if none does."""
     ordered = np.sort(mix)
     repeats = ordered[1:][ordered[1:] == ordered[:-1]]
-    if repeats.size == 0:
-        return 0
-    return _repeated_rows(sort_small_rows(connectivity[np.isin(mix, repeats)]))
+    return np.isin(mix, repeats) if repeats.size else None
 
 
 def _mixed(values: np.ndarray) -> np.ndarray:
@@ -128,11 +133,10 @@ def _repeated_rows(rows: np.ndarray) -> int:
             mix *= np.uint64(0x9E3779B97F4A7C15)
             mix += rows[:, j].astype(np.uint64)
             mix ^= mix >> np.uint64(29)
-    ordered = np.sort(mix)
-    repeats = ordered[1:][ordered[1:] == ordered[:-1]]
-    if repeats.size == 0:
+    again = _repeating(mix)
+    if again is None:
         return 0
-    rows = rows[np.isin(mix, repeats)]
+    rows = rows[again]
     _, starts = group_columns([rows[:, j] for j in range(rows.shape[1])])
     return rows.shape[0] - int(starts.size)
 

@@ -32,7 +32,7 @@ def edge_twins(face_points: np.ndarray, nxt: np.ndarray, edge_cell: np.ndarray, 
 
     None when that is not one position for every edge (the surface is not closed and consistently
     oriented, a corner follows itself) or when the stream does not list its cells in order (the
-    caller then checks the surface by other means). Sorted by packed ``(a, b)`` keys with the
+    caller then checks the surface by other means). Sorted by packed undirected ``(min, max)`` keys with the
     position below them, in chunks of whole cells so that the key fits in 63 bits.
     """
     n = face_points.size
