@@ -53,6 +53,11 @@ def test_pieces_of_a_split_cell_take_the_whole_cells_size_and_count_once(tmp_pat
     vtk_sizes = pv.read(wedges).compute_cell_sizes()["Volume"] ** (1 / 3)  # VTK's wedge volumes [lib]
     np.testing.assert_allclose(whole.cell_sizes, vtk_sizes, rtol=1e-12)
     np.testing.assert_allclose(split.cell_sizes, whole.cell_sizes[split.cell_parents], rtol=1e-12)
+    # some pieces' sizes without the mesh-wide array: the same numbers, and only whole cells' sizes kept
+    some = np.arange(0, split.n_cells, 3)
+    assert np.array_equal(split.cell_sizes_of(some), split.cell_sizes[some])
+    np.testing.assert_allclose(split.cell_sizes_of(some), vtk_sizes[split.cell_parents[some]], rtol=1e-12)  # [lib]
+    assert split._whole_cell_sizes.size == whole.n_cells
     assert describe_series(convex)["cells"] == describe_series(wedges)["cells"] == whole.n_cells
     # the bulk cells of each phase are counted as cells, not pieces
     c_whole = _drop(whole.cell_centroids)

@@ -211,8 +211,7 @@ def _finish_band_by_distance(mesh, pairs, shared, source_cell, extra_pairs, cell
         on_mesh = pairs if cells is None else cells[pairs]
         key = np.sort(on_mesh, axis=1) @ np.array([mesh.n_cells, 1])
         across = np.isin(key, np.sort(extra_pairs, axis=1) @ np.array([mesh.n_cells, 1]))
-        h = mesh.cell_sizes
-        length[across] = 0.5 * (h[on_mesh[across, 0]] + h[on_mesh[across, 1]])
+        length[across] = 0.5 * (mesh.cell_sizes_of(on_mesh[across, 0]) + mesh.cell_sizes_of(on_mesh[across, 1]))
         del on_mesh
     np.maximum(length, 1e-300, out=length)
     used = np.zeros(mesh.n_cells if cells is None else cells.size, dtype=bool)

@@ -44,7 +44,7 @@ def _find_periodic_pairs(mesh: Mesh, axis: int):
         tree = cKDTree(centre[on_hi][:, other])
         dist, j = tree.query(centre[on_lo][:, other])
         lo_cells = owner[on_lo]
-        accept = dist <= 0.5 * mesh.cell_sizes[lo_cells]
+        accept = dist <= 0.5 * mesh.cell_sizes_of(lo_cells)
         pairs = np.stack([lo_cells[accept], owner[on_hi][j[accept]]], axis=1)
     return pairs, lo, period
 

@@ -38,7 +38,7 @@ def volume_integrals(mesh: Mesh, g: np.ndarray, w: np.ndarray, member_cells: np.
     with np.errstate(invalid="ignore", divide="ignore"):
         centroid = np.stack([np.bincount(g, weights=w * X[:, d], minlength=n_drop)
                              for d in range(dim)], axis=1) / volume[:, None]
-        h_local = np.bincount(g, weights=w * mesh.cell_sizes[member_cells], minlength=n_drop) / volume
+        h_local = np.bincount(g, weights=w * mesh.cell_sizes_of(member_cells), minlength=n_drop) / volume
     back = np.zeros((n_drop, dim))  # whole periods that put each centroid back in the domain
     for ax, lo, period in periods:
         back[:, ax] = period * np.floor((centroid[:, ax] - lo) / period)

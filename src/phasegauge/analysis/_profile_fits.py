@@ -55,7 +55,7 @@ def _profile_table(mesh: Mesh, geometry: _ContourGeometry, values: np.ndarray, d
     points = np.nonzero(band)[0]
     xyz = geometry.centroids[chosen]
     cells = contour.cells[chosen]
-    h = mesh.cell_sizes[cells]
+    h = mesh.cell_sizes_of(cells)
     guess = width_guess if np.isfinite(width_guess) else 0.0
     radius = np.maximum(0.35 * guess, 2.0 * h)
     if points.size:

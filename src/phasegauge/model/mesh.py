@@ -365,15 +365,25 @@ class Mesh:
         """Centroids (centres of area or volume), shape (n_cells, dimension)."""
         return self._geometry[1]
 
-    @cached_property
+    @property
     def cell_sizes(self) -> np.ndarray:
         """Characteristic cell length: measure ** (1 / dimension), shape (n_cells,).
 
-        Pieces of a cell a reader split (:attr:`cell_parents`) take the whole cell's measure.
+        Pieces of a cell a reader split (:attr:`cell_parents`) take the whole cell's measure; only
+        the whole cells' sizes are kept, gathered on every read (:meth:`cell_sizes_of`: some cells).
         """
+        return self._whole_cell_sizes if self.cell_parents is None else self._whole_cell_sizes[self.cell_parents]
+
+    def cell_sizes_of(self, cells) -> np.ndarray:
+        """:attr:`cell_sizes` of ``cells`` (indices or a mask), without the mesh-wide array."""
+        return self._whole_cell_sizes[cells if self.cell_parents is None else self.cell_parents[cells]]
+
+    @cached_property
+    def _whole_cell_sizes(self) -> np.ndarray:
+        """measure ** (1 / dimension) of each whole cell (numbered by :attr:`cell_parents`), or cell."""
         if self.cell_parents is not None:
             whole = np.bincount(self.cell_parents, weights=self.cell_measures)
-            return whole[self.cell_parents] ** (1.0 / self.dimension)
+            return whole ** (1.0 / self.dimension)
         return self.cell_measures ** (1.0 / self.dimension)
 
     @cached_property
