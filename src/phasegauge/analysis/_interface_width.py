@@ -415,7 +415,7 @@ def _metrics(work: _Work, max_samples: int):
     # second moment of the normal distance, weighted by |grad c|, out to 10 eps (the logistic
     # tails beyond hold 0.3 % of its variance) or 4 cells, whichever is farther
     sizes = geometry.sizes
-    h = mesh.cell_sizes[contour.cells]
+    h = mesh.cell_sizes_of(contour.cells)
     h_interface = float((sizes * h).sum() / size)
     # (eps of the band volume: a low-level cloud of c away from the interface inflates the
     # threshold-free eps, and would widen the range that then picks up more of that cloud)

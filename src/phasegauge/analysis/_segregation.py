@@ -279,7 +279,7 @@ def regular_sample(mesh: Mesh, c: np.ndarray, resolution: int | None = None):
         at = np.stack([g.ravel() for g in np.meshgrid(*axes, indexing="ij")], axis=1)
         distance, nearest = cKDTree(mesh.cell_centroids).query(at)
         values = c[nearest]
-        values[distance > 1.5 * mesh.cell_sizes[nearest]] = np.nan
+        values[distance > 1.5 * mesh.cell_sizes_of(nearest)] = np.nan
         sample = values.reshape(shape)
     return sample, spacing
 

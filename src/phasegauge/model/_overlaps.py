@@ -165,7 +165,7 @@ def _covered_boundary_faces(mesh, neighbours: int = 8) -> int:
     # do not send every probe along another cell's face
     weights = np.array([0.41, 0.59]) if width == 2 else np.array([0.23, 0.33, 0.44])
     middle = np.einsum("k,nkd->nd", weights, face)
-    size = mesh.cell_sizes[owners]
+    size = mesh.cell_sizes_of(owners)
     away = middle - centroids[owners]
     away /= np.maximum(np.linalg.norm(away, axis=1), 1e-300)[:, None]
     probe = middle + 1e-3 * size[:, None] * away
