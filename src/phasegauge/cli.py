@@ -114,7 +114,7 @@ def main(ctx, debug):
     # imported, in the commands) is off for this command unless the user set it: where the
     # kernel compacts memory to hand out huge pages on request (Linux transparent hugepages "madvise"
     # with defrag "madvise", a common server setting), a run's fresh arrays stalled in the kernel (the
-    # first step on 1M jittered hexahedra 10.1-10.4 s with it, 6.6-7.0 s without: benchmarks/RESULTS.md,
+    # first step on 1M jittered hexahedra 10.1-10.9 s with it, 6.6-7.6 s without: benchmarks/RESULTS.md,
     # tenth round). Worker processes inherit it.
     os.environ.setdefault("NUMPY_MADVISE_HUGEPAGE", "0")
     ctx.ensure_object(dict)
