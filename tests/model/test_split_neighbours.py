@@ -151,3 +151,24 @@ def test_edge_twins_are_each_edge_run_back_in_its_cell(damage):
     expected = [where[(c, b, a)] for a, b, c in zip(stream, stream[nxt], edge_cell)]
     assert all(len(e) == 1 for e in expected)
     np.testing.assert_array_equal(twin, [e[0] for e in expected])
+
+
+@pytest.mark.parametrize("dtype", [np.int8, np.int32, np.int64])
+def test_ordered_rows_as_the_rule_says_whatever_the_width(dtype):
+    # each row: the higher numbers increasing, then the lower increasing, then -1 (the order a table
+    # built from sorted face pairs has), written out row by row in Python; int8 with 100 rows puts
+    # "lower number + rows" past the signed range (a key that once came back negative)
+    from phasegauge.model._split_neighbours import ordered_rows
+
+    rng = np.random.default_rng(7)
+    n, k = 100, 4
+    rows = np.full((n, k), -1, dtype=np.int64)
+    for i in range(n):
+        m = rng.integers(0, k + 1)
+        rows[i, :m] = rng.choice(np.delete(np.arange(n), i), size=m, replace=False)
+        rng.shuffle(rows[i])
+    expected = np.array([sorted(v for v in r if v > i) + sorted(v for v in r if 0 <= v < i)
+                         + [-1] * sum(v < 0 for v in r) for i, r in enumerate(rows.tolist())])
+    got = ordered_rows(rows.astype(dtype))
+    assert got.dtype == dtype
+    np.testing.assert_array_equal(got.astype(np.int64), expected)

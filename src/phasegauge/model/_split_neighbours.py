@@ -209,11 +209,12 @@ def ordered_rows(neighbours: np.ndarray) -> np.ndarray:
 
     Sorted as unsigned keys of the same width: a higher number is itself, a lower one plus the
     number of rows, and -1 wraps to the largest key; no key is rebuilt after the sort but the
-    lower ones (the largest key read signed is -1 again).
+    lower ones, while still unsigned (the largest key read signed is -1 again).
     """
     n = neighbours.shape[0]
     unsigned = np.dtype(f"u{neighbours.itemsize}")
     shift = unsigned.type(n)
+    wrapped = np.iinfo(unsigned).max  # -1, a boundary face
     for lo in range(0, n, CHUNK):  # chunks that stay in cache
         nb = neighbours[lo:lo + CHUNK]
         own = np.arange(lo, lo + nb.shape[0], dtype=unsigned)
@@ -223,9 +224,9 @@ def ordered_rows(neighbours: np.ndarray) -> np.ndarray:
             np.add(key, shift, out=key, where=key < own)  # the lower numbers after the higher
             keys.append(key)
         for j, key in enumerate(sort_columns(keys) if len(keys) <= 4 else list(np.sort(np.stack(keys, 1), 1).T)):
-            key = key.view(neighbours.dtype)
-            np.subtract(key, n, out=key, where=key >= n)
-            nb[:, j] = key
+            # back to the lower numbers while unsigned (a key past the signed range reads negative)
+            np.subtract(key, shift, out=key, where=(key >= shift) & (key != wrapped))
+            nb[:, j] = key.view(neighbours.dtype)
     return neighbours
 
 
