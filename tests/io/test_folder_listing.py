@@ -96,11 +96,13 @@ def test_patch_files_beside_listed_steps_are_no_missing_steps(tmp_path):
 
 
 def test_steps_named_by_time_left_out_of_the_listing_are_named(tmp_path):
-    # regression: steps named by their time (c_0.500.vtu, c_1.250.vtu; sol_1.500e-01.vtu) differ in more than
-    # their last number; one left out of the listing was passed over as if it were a patch file
+    # regression: steps named by their time (c_0.500.vtu, c_1.250.vtu; sol_1.500e-01.vtu; t_1.vtu beside
+    # t_0.5.vtu) differ in more than their last number, or in how their numbers are written; one left
+    # out of the listing was passed over as if it were a patch file
     import warnings
 
-    for stem, times in (("c_{:.3f}.vtu", (0.5, 1.25, 2.0)), ("sol_{:.3e}.vtu", (0.15, 2.5, 35.0))):
+    for stem, times in (("c_{:.3f}.vtu", (0.5, 1.25, 2.0)), ("sol_{:.3e}.vtu", (0.15, 2.5, 35.0)),
+                        ("t_{:g}.vtu", (0.5, 1.0, 1.5))):
         folder = tmp_path / stem[:3]
         folder.mkdir()
         mesh = grid_mesh((3, 3))

@@ -138,14 +138,15 @@ def folder_listing(folder: str, files: list):
 
 
 def _digits_masked(path: str) -> str:
-    """A file's name with every run of digits replaced by ``#`` (steps named by number or time alike)."""
-    return re.sub(r"\d+", "#", os.path.basename(path))
+    """A file's name with every number replaced by ``#``: runs of digits, with a decimal part and
+    an exponent if they have them (``c_0.5.vtu``, ``c_1.vtu`` and ``s_1.0e-01.vtu`` alike)."""
+    return re.sub(r"\d+(?:\.\d+)?(?:[eE][-+]?\d+)?", "#", os.path.basename(path))
 
 
 def _warn_unlisted(files: list, listing: str, rows: list) -> None:
     """Warn (:class:`SeriesWarning`, one line) of the folder's mesh files its listing does not name
     that are named as its steps are: the same text around every number (``out_7.vtu`` beside a
-    listed ``out_6.vtu``, ``c_0.75.vtu`` beside ``c_0.125.vtu``; every unlisted file where no
+    listed ``out_6.vtu``, ``c_1.vtu`` beside ``c_0.5.vtu``; every unlisted file where no
     listed name holds a number). Other files beside the steps (a solver's boundary patches,
     ``wall_0000.vtu``) are no missing steps and are passed over."""
     named = {os.path.abspath(f) for _, f in rows}
