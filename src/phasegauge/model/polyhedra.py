@@ -396,7 +396,7 @@ def _fill_centred(tetra, source, face_points, nxt, centre_of_position, edge_cell
         part[:, 2] = centre_of_position[lo:hi]
         cells = edge_cell[lo:hi]
         source[lo:hi] = cells
-        np.add(cells, first_cell_centre, out=part[:, 3], dtype=np.int64, casting="unsafe")
+        np.add(cells, first_cell_centre, out=part[:, 3], dtype=np.int64)
 
 
 def _tetra_neighbours(face_points, face_offsets, sizes, nxt, face_cell, twin, n_points, centred_groups, triangles,
