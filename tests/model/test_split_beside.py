@@ -86,3 +86,16 @@ def test_quad_faces_are_grouped_as_numpy_groups_them(high):
     assert _unique_rows(rows[:0])[0].shape == (0, 4)
     one, where = _unique_rows(rows[:1].repeat(3, axis=0))  # one group: every row number 0
     assert one.shape == (1, 4) and not where.any()
+
+
+@pytest.mark.parametrize("high", [5, 1000, 2 ** 33])
+def test_first_rows_and_group_numbers_as_numpy_gives_them(high):
+    # the split's centred faces take each face's first row and every row's face number from one
+    # stable packed sort: against np.unique(return_index=True, return_inverse=True) [lib]
+    from phasegauge.model._grouping import group_columns, group_numbers
+
+    ids = np.random.default_rng(high % 89).integers(0, high, size=500)
+    order, starts = group_columns([ids])
+    expected, first, inverse = np.unique(ids, return_index=True, return_inverse=True)
+    np.testing.assert_array_equal(order[starts], first)
+    np.testing.assert_array_equal(group_numbers(order, starts), inverse.ravel())

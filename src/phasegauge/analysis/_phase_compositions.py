@@ -134,7 +134,14 @@ def interface_distance(mesh, c_cell, contour, *, level=0.5, reach=np.inf, measur
     if copies is not None:  # across a periodic boundary: the nearer of the contour and its copies
         copied = _ContourGeometry(copies)
         rows = np.arange(c.size)
-        if limited:
+        if limited:  # the copies lie beyond a periodic face: only cells within reach of one can be near
+            names, _ = _normalize_periodic(mesh, periodic)
+            bounds = mesh.bounds
+            edge = np.zeros(c.size, dtype=bool)
+            for axis in (AXIS_INDEX[name] for name in names):
+                x = points[:, axis]
+                edge |= (x - bounds[0, axis] <= reach) | (bounds[1, axis] - x <= reach)
+            rows = rows[edge]
             rows = rows[_maybe_near_cells(mesh, rows, copied.centroids[:, list(contour.plane_axes)], reach)]
         if rows.size:
             across = np.abs(_signed_distance(points[rows], c[rows], copied, contour.plane_axes, level,

@@ -111,7 +111,7 @@ class _NodeColumns:
 
 
 def _plane_pieces(mesh: Mesh, axis: int, position: float, lower_end: bool, cells: np.ndarray,
-                  columns: _NodeColumns | None = None) -> tuple:
+                  columns: _NodeColumns) -> tuple:
     """The section of ``cells`` by one plane: pieces and their corners on the cut edges.
 
     Returns the piece measures (n,), parents (n,), corner start and end nodes (n, dimension),
@@ -119,10 +119,9 @@ def _plane_pieces(mesh: Mesh, axis: int, position: float, lower_end: bool, cells
     (a list of (m, k) arrays, in node order). The nodes are numbered as the split of
     ``cells`` numbers them (added centres from ``mesh.n_points`` on); the caller renumbers
     the centres of the distinct cut edges (:func:`_renumbered`). ``columns``: the node
-    coordinates' buffers of the operator being built (default: new ones).
+    coordinates' buffers of the operator being built.
     """
     dim = mesh.dimension
-    columns = columns or _NodeColumns(mesh)
     split = split_cells(mesh, cells)
     nodes, parent, centres = split.simplices, split.owner, [corners for _, corners in split.centres]
     # the offsets from the plane first (one coordinate), the in-plane corners of the crossed
@@ -242,7 +241,7 @@ def _sorted_corners(columns: list) -> tuple:
 
 
 def _layer_pieces(mesh: Mesh, axis: int, position: float, lower_end: bool, cells: np.ndarray,
-                  columns: _NodeColumns | None = None) -> tuple | None:
+                  columns: _NodeColumns) -> tuple | None:
     """:func:`_plane_pieces` for a layer of cells that all meet the plane alike, else None.
 
     When every crossed cell is of one block, is split without added centres, and has the

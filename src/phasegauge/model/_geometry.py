@@ -185,9 +185,7 @@ def _sub(a: list, b: list) -> list:
 
 def _triple(a: list, b: list, c: list) -> np.ndarray:
     """a . (b x c) for 3-vectors given as component lists (the cofactor order of :func:`_det`)."""
-    return (a[0] * (b[1] * c[2] - b[2] * c[1])
-            - a[1] * (b[0] * c[2] - b[2] * c[0])
-            + a[2] * (b[0] * c[1] - b[1] * c[0]))
+    return _dot(a, _cross(b, c))  # the middle cofactor negated: the same floats
 
 
 def _corner_mean(P: list) -> list:

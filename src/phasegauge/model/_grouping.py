@@ -211,8 +211,14 @@ def unique_rows(rows: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
     row's among them: ``np.unique(rows, axis=0, return_inverse=True)``, by packed sorts
     (:func:`group_columns`)."""
     order, starts = group_columns([rows[:, j] for j in range(rows.shape[1])])
-    group = np.zeros(len(rows), dtype=np.int64)
+    return rows[order[starts]], group_numbers(order, starts)
+
+
+def group_numbers(order: np.ndarray, starts: np.ndarray) -> np.ndarray:
+    """Each row's group number (groups numbered in sorted order) from :func:`group_columns`'
+    ``order`` and ``starts``: ``np.unique``'s inverse."""
+    group = np.zeros(order.size, dtype=np.int64)
     group[starts] = 1
-    inverse = np.empty(len(rows), dtype=np.int64)
+    inverse = np.empty(order.size, dtype=np.int64)
     inverse[order] = np.cumsum(group) - 1
-    return rows[order[starts]], inverse
+    return inverse

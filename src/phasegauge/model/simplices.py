@@ -41,7 +41,7 @@ from functools import cached_property
 import numpy as np
 
 from .corners import corner_mean
-from ._grouping import _bits, _sort_order, sort_small_rows
+from ._grouping import group_columns, group_numbers, sort_small_rows
 from ._split_tables import CONED_TYPES, TABLE, TABLE_DIAGONALS
 from .cells import FACES
 from .mesh import Mesh
@@ -442,14 +442,10 @@ def _split_centred_faces(pending: list, pieces: _Pieces) -> None:
     # the centre is the mean of its corners in sorted order (the same from either side)
     n_ids = int(face_id.max()) + 1
     if 8 * face_id.size < n_ids:  # a few of the mesh's faces: sort them rather than sweep all ids
-        # np.unique's first indices and inverse, by one packed sort (a stable order: 4-7x faster)
-        order, key = _sort_order(face_id.astype(np.int64), _bits(n_ids))
-        distinct = np.empty(key.size, dtype=bool)
-        distinct[:1] = True
-        np.not_equal(key[1:], key[:-1], out=distinct[1:])
-        first = order[distinct]
-        slot = np.empty(key.size, dtype=np.int64)
-        slot[order] = np.cumsum(distinct) - 1
+        # np.unique's first indices and inverse, by one packed stable sort (4-7x faster)
+        order, starts = group_columns([face_id])
+        first = order[starts]
+        slot = group_numbers(order, starts)
         centre = pieces.add_centres(sort_small_rows(faces[first]))[slot]
     else:
         first = np.zeros(n_ids, dtype=np.int64)
