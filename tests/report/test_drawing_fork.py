@@ -348,14 +348,15 @@ def test_a_fork_stopped_while_writing_leaves_no_temporary_file(tmp_path, forks):
     it was writing is removed (the ``.tmp-<hex><name>.part`` files of ``_files.atomic_write_bytes``)."""
     import time
 
-    from phasegauge.report._files import TEMP_PREFIX
+    from phasegauge.report._files import _TEMP_TOKEN_BYTES, TEMP_PREFIX
 
+    token = "ab" * _TEMP_TOKEN_BYTES  # as secrets.token_hex(_TEMP_TOKEN_BYTES) writes it
     parent = os.getpid()
     makers = _makers()
     theirs = _drawing._their_share(makers)
     index, mine = theirs[0], [i for i in range(len(makers)) if i not in theirs][0]
-    temporary = tmp_path / f"{TEMP_PREFIX}0123456789ab{makers[index][0]}.png.part"
-    other = tmp_path / f"{TEMP_PREFIX}0123456789abmine.png.part"  # not the fork's: kept
+    temporary = tmp_path / f"{TEMP_PREFIX}{token}{makers[index][0]}.png.part"
+    other = tmp_path / f"{TEMP_PREFIX}{token}mine.png.part"  # not the fork's: kept
     other.write_bytes(b"")
 
     def writing_in_the_fork():
@@ -398,14 +399,15 @@ def test_figures_made_already_are_saved_as_their_makers_would_save_them(tmp_path
 
 def test_temporaries_of_named_files_or_of_every_file_are_removed(tmp_path):
     # one clean-up for a stopped fork's files (by name, in the folder itself) and a killed run's (all)
-    from phasegauge.report._files import PREVIOUS_RUN, TEMP_PREFIX, remove_temporaries
+    from phasegauge.report._files import _TEMP_TOKEN_BYTES, PREVIOUS_RUN, TEMP_PREFIX, remove_temporaries
 
+    token = "ab" * _TEMP_TOKEN_BYTES  # as secrets.token_hex(_TEMP_TOKEN_BYTES) writes it
     (tmp_path / ".cache").mkdir()
     (tmp_path / PREVIOUS_RUN).mkdir()
-    files = {key: tmp_path / f"{TEMP_PREFIX}0123456789ab{name}.part" for key, name in
+    files = {key: tmp_path / f"{TEMP_PREFIX}{token}{name}.part" for key, name in
              (("fork", "plot_1.png"), ("mine", "plot_2.png"))}
-    files["cached"] = tmp_path / ".cache" / f"{TEMP_PREFIX}0123456789abplot_1.png.part"
-    files["previous"] = tmp_path / PREVIOUS_RUN / f"{TEMP_PREFIX}0123456789abplot_1.png.part"
+    files["cached"] = tmp_path / ".cache" / f"{TEMP_PREFIX}{token}plot_1.png.part"
+    files["previous"] = tmp_path / PREVIOUS_RUN / f"{TEMP_PREFIX}{token}plot_1.png.part"
     for path in files.values():
         path.write_bytes(b"half")
     remove_temporaries(str(tmp_path), [])

@@ -60,20 +60,24 @@ def weighted_quantile(values, weights, q, *, method: str = "midpoint"):
         # np.interp's bracket in a non-decreasing table is the last middle <= the target (a
         # searchsorted); NaN or a table out of order (overflowing weights) takes np.interp itself
         ordered = bool(middle.size < 2 or (middle[1:] >= middle[:-1]).all())
+        table = None if ordered else v[order]  # out of order: np.interp on the whole table, gathered once
 
         def one(p):
-            return _interpolated(float(p * total), middle, v, order, ordered)
+            if table is not None:
+                return float(np.interp(float(p * total), middle, table))
+            return _interpolated(float(p * total), middle, v, order)
     return tuple(one(p) for p in q) if several else one(q)
 
 
-def _interpolated(target, middle, v, order, ordered):
-    """``np.interp(target, middle, v[order])``, gathering the values it reads only (the same float).
+def _interpolated(target, middle, v, order):
+    """``np.interp(target, middle, v[order])`` in a non-decreasing ``middle``, gathering the values it
+    reads only (the same float).
 
     In a non-decreasing table np.interp takes ``v[order][0]`` below the first point, the last
     value from the last point on, and otherwise interpolates between the points ``j, j + 1`` with
     ``middle[j] <= target < middle[j + 1]``: the same arithmetic as on those two points alone.
     """
-    if not ordered or target != target:
+    if target != target:  # a NaN target (infinite weights): np.interp's own answer
         return float(np.interp(target, middle, v[order]))
     j = int(np.searchsorted(middle, target, side="right")) - 1
     if j < 0:
