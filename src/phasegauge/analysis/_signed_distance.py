@@ -227,11 +227,14 @@ def _cell_pieces(geometry: _ContourGeometry, *, flat: float = 0.95) -> _ContourG
     # a piece's half-size: the farthest of its elements' corners from its centroid (a piece is
     # often long and thin, a corner of its cell cut off: the root of its area would call points
     # beside it off its edge)
-    corners = contour.points[contour.elements]
-    reach = np.zeros(n)
+    own = centre[cells]
+    farthest = np.zeros(cells.size)
     for k in range(3):
-        offset = corners[:, k] - centre[cells]
-        np.maximum.at(reach, cells, np.sqrt(np.einsum("ij,ij->i", offset, offset)))
+        offset = contour.points[contour.elements[:, k]] - own
+        np.maximum(farthest, np.einsum("ij,ij->i", offset, offset), out=farthest)
+    reach = np.zeros(n)
+    np.maximum.at(reach, cells, farthest)
+    np.sqrt(reach, out=reach)
     sizes_out = np.concatenate([area[keep], sizes[alone]])
     centroids = np.concatenate([centre[keep], geometry.centroids[alone]])
     normals = np.concatenate([vector[keep] / length[keep, None], geometry.normals[alone]])
