@@ -17,6 +17,7 @@ from phasegauge.analysis._hex_integrals import _HexBand, coned_hexahedra
 from phasegauge.analysis._width_integrals import _SplitBand
 from phasegauge.analysis.interface import METRIC_KEYS, interface_metrics, interface_profile_table
 from phasegauge.meshgen import grid_mesh
+from phasegauge.model.corners import corner_extremes
 from phasegauge.model.mesh import Mesh
 
 RTOL = 1e-12
@@ -85,9 +86,11 @@ def test_cell_path_matches_the_full_split(monkeypatch, name, cells_across):
     # cell instead: tested against the analytic distance below), so that the integrals and the
     # moments are compared with the split's alone
     monkeypatch.setattr(hex_module, "_cell_pieces", lambda geometry: geometry)
+    assert interface_metrics(mesh, c)["interface_width"] == pieces["interface_width"]
+    # the cells no band edge crosses also over the 24 tetrahedra (the path takes their trilinear
+    # map instead: tested against the split on affine cells and the analytic widths below)
+    monkeypatch.setattr(hex_module, "_QUADRATURE", False)
     fast = interface_metrics(mesh, c)
-    for key in ("interface_size", "interface_width", "width_threshold_free", "interface_eps"):
-        assert pieces[key] == fast[key], key
     fast_table = interface_profile_table(mesh, c)
     _split_path(monkeypatch)
     assert isinstance(width_module._Work(mesh, c, 0.5, None, None).integrals, _SplitBand)
@@ -101,13 +104,12 @@ def test_cell_path_matches_the_full_split(monkeypatch, name, cells_across):
     np.testing.assert_allclose(fast_table["width"].to_numpy(), slow_table["width"].to_numpy(), rtol=1e-9)
 
 
-def test_cell_path_integrals_match_the_split_one_by_one():
+def test_cell_path_integrals_match_the_split_one_by_one(monkeypatch):
     # the raw integrals, band volume, int c (1 - c), int |grad c| and the moments, each against the
     # split's (the 24 tetrahedra per cell are the split's own)
+    monkeypatch.setattr(hex_module, "_QUADRATURE", False)
     mesh = _meshes()["jittered"]
     c = np.clip(_sphere(mesh, 1.5), 0.0, 1.0)
-    from phasegauge.model.corners import corner_extremes
-
     low, high = corner_extremes(mesh, c)
     active = (high > 1e-6) & (low < 1 - 1e-6)
     fast = _HexBand(mesh, c, active, coned_hexahedra(mesh), low, high)
@@ -119,6 +121,30 @@ def test_cell_path_integrals_match_the_split_one_by_one():
     dist = mesh.coordinates[:, 0] - 0.1  # (off centre: m1 does not cancel to round-off)
     slow_dist = slow.split.centre_means(dist)
     np.testing.assert_allclose(fast.moments(dist), slow.moments(slow_dist), rtol=RTOL)
+
+
+def test_quadrature_on_affine_cells_matches_the_split():
+    # cubes turned a quarter (flat faces, coned by the split) and sheared into parallelepipeds:
+    # on affine cells with c and the distance linear, the trilinear map's gradient is exact and
+    # the corner-and-centre rule is exact for c (1 - c) and d^2 (quadratic), so the cells no band
+    # edge crosses must give the split's integrals to round-off (the split is exact for linear c)
+    mesh = _rotated_corners(grid_mesh((6, 6, 6), kind="hexahedron"))
+    shear = np.array([[1.0, 0.3, 0.1], [0.0, 0.9, -0.2], [0.0, 0.0, 1.1]])
+    mesh = Mesh(mesh.points @ shear.T, [("hexahedron", mesh.blocks[0].connectivity)])
+    x = mesh.coordinates
+    inside = 0.3 + 0.2 * x[:, 0] + 0.1 * x[:, 1] - 0.15 * x[:, 2]
+    above = 0.96 + 0.01 * x[:, 0] + 0.005 * x[:, 2]
+    assert 0.05 < inside.min() and inside.max() < 0.95 and 0.95 < above.min() and above.max() < 1
+    active = np.ones(mesh.n_cells, dtype=bool)
+    for c in (inside, above):
+        low, high = corner_extremes(mesh, c)
+        fast = _HexBand(mesh, c, active, coned_hexahedra(mesh), low, high)
+        assert fast.cells.smooth_chunks and not fast.cells.chunks  # every cell by the quadrature
+        slow = _SplitBand(mesh, c, active)
+        for name in ("band", "mixed", "total_gradient"):
+            assert getattr(fast, name) == pytest.approx(getattr(slow, name), rel=RTOL, abs=1e-15), name
+        dist = x[:, 0] - 0.4 * x[:, 1] + 0.2
+        np.testing.assert_allclose(fast.moments(dist), slow.moments(slow.split.centre_means(dist)), rtol=RTOL)
 
 
 @pytest.mark.parametrize("cells_across", [4, 8])
