@@ -140,7 +140,7 @@ class _HexCells:
     Attributes
     ----------
     count : int
-        Number of tetrahedra.
+        Number of tetrahedra, and of cells integrated by the quadrature.
     band, mixed, total_gradient : float
         As :class:`._width_integrals._SplitBand`.
     known : ndarray of bool, shape (n_points,)
@@ -330,7 +330,8 @@ class _HexCells:
         self.smooth_chunks.append((connectivity, part[varying], weights[varying]))
 
     def moments(self, dist: np.ndarray) -> np.ndarray:
-        """(m0, m1, m2) over the tetrahedra of cells whose eight corner distances are known."""
+        """(m0, m1, m2) over the cells whose eight corner distances are known (by the quadrature's
+        rule where the integrals took it, else over their tetrahedra)."""
         m0 = m1 = m2 = 0.0
         for connectivity, part, weights in self.smooth_chunks:  # the same rule as int c (1 - c)
             conn = connectivity[part]
