@@ -11,11 +11,13 @@ import math
 import numpy as np
 import pytest
 
+import phasegauge.analysis._hex_integrals as hex_module
 import phasegauge.analysis._interface_width as width_module
 from phasegauge.analysis._hex_integrals import _HexBand, coned_hexahedra
 from phasegauge.analysis._width_integrals import _SplitBand
 from phasegauge.analysis.interface import METRIC_KEYS, interface_metrics, interface_profile_table
 from phasegauge.meshgen import grid_mesh
+from phasegauge.model.corners import corner_extremes
 from phasegauge.model.mesh import Mesh
 
 RTOL = 1e-12
@@ -79,6 +81,15 @@ def test_cell_path_matches_the_full_split(monkeypatch, name, cells_across):
     c = _sphere(mesh, cells_across)
     work = width_module._Work(mesh, c, 0.5, None, None)
     assert isinstance(work.integrals, _HexBand)
+    pieces = interface_metrics(mesh, c)
+    # the distances against the contour's own triangles (the path searches one plane per crossed
+    # cell instead: tested against the analytic distance below), so that the integrals and the
+    # moments are compared with the split's alone
+    monkeypatch.setattr(hex_module, "_cell_pieces", lambda geometry: geometry)
+    assert interface_metrics(mesh, c)["interface_width"] == pieces["interface_width"]
+    # the cells no band edge crosses also over the 24 tetrahedra (the path takes their trilinear
+    # map instead: tested against the split on affine cells and the analytic widths below)
+    monkeypatch.setattr(hex_module, "_QUADRATURE", False)
     fast = interface_metrics(mesh, c)
     fast_table = interface_profile_table(mesh, c)
     _split_path(monkeypatch)
@@ -93,13 +104,12 @@ def test_cell_path_matches_the_full_split(monkeypatch, name, cells_across):
     np.testing.assert_allclose(fast_table["width"].to_numpy(), slow_table["width"].to_numpy(), rtol=1e-9)
 
 
-def test_cell_path_integrals_match_the_split_one_by_one():
+def test_cell_path_integrals_match_the_split_one_by_one(monkeypatch):
     # the raw integrals, band volume, int c (1 - c), int |grad c| and the moments, each against the
     # split's (the 24 tetrahedra per cell are the split's own)
+    monkeypatch.setattr(hex_module, "_QUADRATURE", False)
     mesh = _meshes()["jittered"]
     c = np.clip(_sphere(mesh, 1.5), 0.0, 1.0)
-    from phasegauge.model.corners import corner_extremes
-
     low, high = corner_extremes(mesh, c)
     active = (high > 1e-6) & (low < 1 - 1e-6)
     fast = _HexBand(mesh, c, active, coned_hexahedra(mesh), low, high)
@@ -111,6 +121,30 @@ def test_cell_path_integrals_match_the_split_one_by_one():
     dist = mesh.coordinates[:, 0] - 0.1  # (off centre: m1 does not cancel to round-off)
     slow_dist = slow.split.centre_means(dist)
     np.testing.assert_allclose(fast.moments(dist), slow.moments(slow_dist), rtol=RTOL)
+
+
+def test_quadrature_on_affine_cells_matches_the_split():
+    # cubes turned a quarter (flat faces, coned by the split) and sheared into parallelepipeds:
+    # on affine cells with c and the distance linear, the trilinear map's gradient is exact and
+    # the corner-and-centre rule is exact for c (1 - c) and d^2 (quadratic), so the cells no band
+    # edge crosses must give the split's integrals to round-off (the split is exact for linear c)
+    mesh = _rotated_corners(grid_mesh((6, 6, 6), kind="hexahedron"))
+    shear = np.array([[1.0, 0.3, 0.1], [0.0, 0.9, -0.2], [0.0, 0.0, 1.1]])
+    mesh = Mesh(mesh.points @ shear.T, [("hexahedron", mesh.blocks[0].connectivity)])
+    x = mesh.coordinates
+    inside = 0.3 + 0.2 * x[:, 0] + 0.1 * x[:, 1] - 0.15 * x[:, 2]
+    above = 0.96 + 0.01 * x[:, 0] + 0.005 * x[:, 2]
+    assert 0.05 < inside.min() and inside.max() < 0.95 and 0.95 < above.min() and above.max() < 1
+    active = np.ones(mesh.n_cells, dtype=bool)
+    for c in (inside, above):
+        low, high = corner_extremes(mesh, c)
+        fast = _HexBand(mesh, c, active, coned_hexahedra(mesh), low, high)
+        assert fast.cells.smooth_chunks and not fast.cells.chunks  # every cell by the quadrature
+        slow = _SplitBand(mesh, c, active)
+        for name in ("band", "mixed", "total_gradient"):
+            assert getattr(fast, name) == pytest.approx(getattr(slow, name), rel=RTOL, abs=1e-15), name
+        dist = x[:, 0] - 0.4 * x[:, 1] + 0.2
+        np.testing.assert_allclose(fast.moments(dist), slow.moments(slow.split.centre_means(dist)), rtol=RTOL)
 
 
 @pytest.mark.parametrize("cells_across", [4, 8])
@@ -128,6 +162,37 @@ def test_planar_logistic_profile_on_jittered_hexahedra(cells_across):
     c = 0.5 * (1 + np.tanh((mesh.coordinates[:, 0] - 0.5037) / (2 * eps)))
     r = interface_metrics(mesh, c)
     high = 0.08 if cells_across == 4 else 0.03
+    for key in ("interface_width", "width_threshold_free", "width_second_moment", "width_profile_median"):
+        assert -0.02 < r[key] / width - 1 < high, key
+    # dc/dn is a logistic density of variance pi^2 eps^2 / 3 (REFERENCES.md [calc])
+    assert 0.96 < r["interface_variance"] / (np.pi ** 2 * eps ** 2 / 3) < (1 + high) ** 2
+
+
+@pytest.mark.parametrize("cells_across, n", [(4, 32), (8, 48)])
+def test_sphere_on_jittered_hexahedra_distances_and_widths(cells_across, n):
+    # a logistic drop of radius R (Olsson & Kreiss 2005): the distance to the interface is
+    # |r - R| (a sphere), and the band volume per area over 0.05 < c < 0.95 is
+    # w (1 + w^2 / (12 R^2)) (REFERENCES.md [calc]: the shell R +- w/2 over the sphere's area).
+    # The distances are searched against one plane per crossed cell (the piece's area-weighted
+    # plane, `_cell_pieces`): within O(h^2 / R) of the contour's own triangles. Measured errors of
+    # the distances, root mean square and largest: 0.022 h and 0.17 h at 4 cells across, 0.016 h
+    # and 0.13 h at 8 (on the triangles themselves 0.030 h and 0.21 h, 0.023 h and 0.15 h); the
+    # same tolerances pass either way.
+    radius = 0.3
+    h = 1.0 / n
+    mesh = grid_mesh((n, n, n), kind="hexahedron", jitter=0.2, seed=3)
+    width = cells_across * h
+    eps = width / BAND
+    r_point = np.linalg.norm(mesh.coordinates - 0.5, axis=1)
+    c = 0.5 * (1 + np.tanh((radius - r_point) / (2 * eps)))
+    r, measured = interface_metrics(mesh, c, return_distances=True)
+    found = np.isfinite(measured.point)
+    assert found.sum() > 0.5 * ((c > 0.01) & (c < 0.99)).sum()
+    error = (measured.point[found] - (radius - r_point[found])) / h
+    assert np.sqrt(np.mean(error ** 2)) < 0.04 and np.abs(error).max() < 0.25
+    curved = width ** 2 / (12 * radius ** 2)
+    high = (0.08 if cells_across == 4 else 0.03) + curved
+    assert r["interface_width"] / width - 1 == pytest.approx(curved, abs=0.07 if cells_across == 4 else 0.03)
     for key in ("interface_width", "width_threshold_free", "width_second_moment", "width_profile_median"):
         assert -0.02 < r[key] / width - 1 < high, key
     # dc/dn is a logistic density of variance pi^2 eps^2 / 3 (REFERENCES.md [calc])

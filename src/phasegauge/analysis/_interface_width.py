@@ -331,8 +331,12 @@ def interface_metrics(mesh: Mesh, indicator, *, level: float = 0.5, contour: Con
     cells around each point, which smooths the profile slightly (widths come
     out a few % high at 4 cells across the interface, less when finer).
     Hexahedra the split cones (a face bent, or cut two ways by its cells) are
-    integrated cell by cell over the split's own 24 tetrahedra, so the result
-    is the split's to round-off; the 6-tetrahedra table is taken only where
+    integrated cell by cell: over the split's own 24 tetrahedra where a band
+    edge crosses the cell, by a quadrature of the cell's trilinear map
+    elsewhere (exact on parallelepipeds, within O(h^2) of the split
+    otherwise), and their distances are searched against one plane per
+    crossed cell (within O(h^2 / R) of the contour's triangles); the
+    6-tetrahedra table is taken only where
     every face is flat (its corners spanning a volume below 1e-10 of its
     diagonal cubed) and cut alike from both
     sides (no looser flatness, so no added error).

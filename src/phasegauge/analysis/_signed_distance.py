@@ -173,6 +173,73 @@ class _ContourGeometry:
         self.size = float(self.sizes.sum())
         self.centroids = contour.centroids
         self.normals = contour.normals
+        self.halves = None  # half the elements' sizes (of the square root of their areas in 3D)
+
+    @classmethod
+    def of_pieces(cls, contour: Contour, sizes, centroids, normals, halves) -> "_ContourGeometry":
+        """A geometry of other elements than the contour's own (one per cell piece, say)."""
+        out = cls.__new__(cls)
+        out.contour = contour
+        out.sizes, out.centroids, out.normals, out.halves = sizes, centroids, normals, halves
+        out.size = float(sizes.sum())
+        return out
+
+
+def _cell_pieces(geometry: _ContourGeometry, *, flat: float = 0.95) -> _ContourGeometry:
+    """The contour's elements merged into one element per mesh cell, where the cell's piece is flat.
+
+    Each cell's element stands for its piece: the area-weighted centroid, the unit normal of the
+    summed area vector, the summed area, and as half-size the distance from the centroid to the
+    piece's farthest corner. A piece counts as flat when its summed area vector is at least
+    ``flat`` times its area (an interface of curvature radius R in cells of size h bends by
+    O(h / R) within a cell); other cells (the level crossing one twice, a fold) keep their own
+    elements. The plane of a piece is within O(h^2 / R) of its elements' own, so the distances
+    move at that order; the search tree is several times smaller (about 14 triangles per cell on
+    the 24-tetrahedra split of a hexahedron).
+
+    Measured against the analytic distance |r - R| to a sphere on jittered hexahedra
+    (``tests/analysis/test_hex_integrals.py``): at the points the widths searched, the error is
+    about 0.02 h (root mean square) and at most 0.17-0.19 h, against 0.03 h and 0.21-0.29 h with
+    the elements themselves (the pieces' planes are closer than single triangles far off the
+    contour, a little farther next to it).
+    """
+    contour = geometry.contour
+    cells = contour.cells
+    if contour.dimension != 3 or cells.size == 0:
+        return geometry
+    sizes = geometry.sizes
+    crossed = np.bincount(cells) > 0
+    cells = (np.cumsum(crossed) - 1)[cells]  # the cells the contour crosses, numbered 0.. in order
+    n = int(np.count_nonzero(crossed))
+    area = np.bincount(cells, weights=sizes, minlength=n)
+    vector = np.empty((n, 3))
+    centre = np.empty((n, 3))
+    for k in range(3):
+        vector[:, k] = np.bincount(cells, weights=sizes * geometry.normals[:, k], minlength=n)
+        centre[:, k] = np.bincount(cells, weights=sizes * geometry.centroids[:, k], minlength=n)
+    length = np.sqrt(np.einsum("ij,ij->i", vector, vector))
+    merged = (area > 0) & (length >= flat * area)
+    keep = np.flatnonzero(merged)
+    alone = np.flatnonzero(~merged[cells])  # elements of the cells not merged
+    if alone.size == cells.size:
+        return geometry
+    centre[keep] /= area[keep, None]
+    # a piece's half-size: the farthest of its elements' corners from its centroid (a piece is
+    # often long and thin, a corner of its cell cut off: the root of its area would call points
+    # beside it off its edge)
+    own = centre[cells]
+    farthest = np.zeros(cells.size)
+    for k in range(3):
+        offset = contour.points[contour.elements[:, k]] - own
+        np.maximum(farthest, np.einsum("ij,ij->i", offset, offset), out=farthest)
+    reach = np.zeros(n)
+    np.maximum.at(reach, cells, farthest)
+    np.sqrt(reach, out=reach)
+    sizes_out = np.concatenate([area[keep], sizes[alone]])
+    centroids = np.concatenate([centre[keep], geometry.centroids[alone]])
+    normals = np.concatenate([vector[keep] / length[keep, None], geometry.normals[alone]])
+    halves = np.concatenate([reach[keep], 0.5 * np.sqrt(sizes[alone])])
+    return _ContourGeometry.of_pieces(contour, sizes_out, centroids, normals, halves)
 
 
 class MeasuredDistances(NamedTuple):
@@ -208,13 +275,15 @@ def _signed_distance(points: np.ndarray, values: np.ndarray, geometry: _ContourG
     cent = geometry.centroids[:, axes]
     normal = geometry.normals[:, axes]
     sizes = geometry.sizes
-    half = 0.5 * (sizes if contour.dimension == 2 else np.sqrt(sizes))
+    half = geometry.halves
+    if half is None:
+        half = 0.5 * (sizes if contour.dimension == 2 else np.sqrt(sizes))
     dist = np.full(points.shape[0], np.nan)
     close = (values > near_band) & (values < 1.0 - near_band)
     rows = np.flatnonzero(close)
     dist[rows] = _nearest_plane_distance(points, rows, cent, normal, half, bound, compact)
     rows = np.flatnonzero(~close)
-    stride = max(1, contour.n_elements // 2000)
+    stride = max(1, sizes.size // 2000)
     if stride > 1:
         thin = slice(0, None, stride)
         spacing = (sizes.sum() / len(cent[thin])) ** (1.0 / (contour.dimension - 1))
