@@ -115,8 +115,9 @@ def _plane_pieces(mesh: Mesh, axis: int, position: float, lower_end: bool, cells
     """The section of ``cells`` by one plane: pieces and their corners on the cut edges.
 
     Returns the piece measures (n,), parents (n,), corner start and end nodes (n, dimension),
-    corner weights t (n, dimension) and the corners of the split's added centres
-    (a list of (m, k) arrays, in node order). The nodes are numbered as the split of
+    corner weights t (n, dimension), the corners of the split's added centres
+    (a list of (m, k) arrays, in node order) and the plane's cut edges (:func:`_cut_edges`,
+    which the corners' places are formed from). The nodes are numbered as the split of
     ``cells`` numbers them (added centres from ``mesh.n_points`` on); the caller renumbers
     the centres of the distinct cut edges (:func:`_renumbered`). ``columns``: the node
     coordinates' buffers of the operator being built.
@@ -155,18 +156,28 @@ def _plane_pieces(mesh: Mesh, axis: int, position: float, lower_end: bool, cells
     del nodes, base, slot, first, second
     # the simplices go; the split's centres are still read below
     split = replace(split, simplices=np.empty((0, k), dtype=np.int64), owner=np.empty(0, dtype=np.int64))
+    edges = _cut_edges(start, end)
+    cut, first = edges
+    shape = t.shape
+    # a piece corner's place depends on its cut edge only (the same nodes and t): formed once per
+    # cut edge (a sixth of the corners), then read by the corners, the same numbers bit for bit
+    t_cut = t.ravel()[first]
+    start_cut, end_cut = start.ravel()[first], end.ravel()[first]
+    cut = cut.astype(np.intp)  # numpy gathers several times faster with intp indices
     X = []  # per in-plane axis, (n, dim): the corners, as the split interpolates them
     for a in others:
         column = columns.at(split, a)
-        Xi = column[start]
-        X.append(Xi + t * (column[end] - Xi))
+        Xi = column[start_cut]
+        Xi += t_cut * (column[end_cut] - Xi)
+        X.append(Xi[cut].reshape(shape))
+    del start_cut, end_cut, t_cut, cut
     if dim == 2:
         measures = np.abs(X[0][:, 1] - X[0][:, 0])
     else:
         d1 = [x[:, 1] - x[:, 0] for x in X]
         d2 = [x[:, 2] - x[:, 0] for x in X]
         measures = 0.5 * np.abs(d1[0] * d2[1] - d1[1] * d2[0])
-    return measures, parent, start, end, t, centres
+    return measures, parent, start, end, t, centres, edges
 
 
 def _renumbered(nodes: np.ndarray, n_points: int, first_added: int) -> np.ndarray:
@@ -270,7 +281,7 @@ def _layer_pieces(mesh: Mesh, axis: int, position: float, lower_end: bool, cells
     if not (s == s[0]).all():
         return None
     template = _plane_pieces(mesh, axis, position, lower_end, cells[:1], columns)
-    measures, parents, start, end, t, centres = template
+    measures, parents, start, end, t, centres, _ = template
     if centres or measures.size == 0:
         return None
     row = conn[0]
@@ -298,7 +309,7 @@ def _layer_pieces(mesh: Mesh, axis: int, position: float, lower_end: bool, cells
         pieces = 0.5 * np.abs(d1[0] * d2[1] - d1[1] * d2[0])
     k, n = S.shape[0], cells.size
     return (pieces.reshape(-1), np.tile(cells.astype(parents.dtype), k), S.reshape(k * n, dim).astype(start.dtype),
-            E.reshape(k * n, dim).astype(end.dtype), weight.reshape(k * n, dim), [])
+            E.reshape(k * n, dim).astype(end.dtype), weight.reshape(k * n, dim), [], None)
 
 
 def _build_sections(mesh: Mesh, axis: int, positions: np.ndarray, lower_ends: np.ndarray,
@@ -314,11 +325,12 @@ def _build_sections(mesh: Mesh, axis: int, positions: np.ndarray, lower_ends: np
         crossed = (lo <= position) & (hi > position) if lower_end else (lo < position) & (hi >= position)
         cells = np.nonzero(crossed)[0]
         del crossed
-        m, parent, start, end, t, plane_centres = (
+        m, parent, start, end, t, plane_centres, edges = (
             _layer_pieces(mesh, axis, float(position), bool(lower_end), cells, columns)
             or _plane_pieces(mesh, axis, float(position), bool(lower_end), cells, columns))
         del cells
-        cut, first = _cut_edges(start, end)
+        cut, first = _cut_edges(start, end) if edges is None else edges
+        del edges
         # the centres numbered after those of earlier planes: a strictly increasing map of the
         # node ids, so the edge keys above sort and match alike before and after it
         start = _renumbered(start.ravel()[first], mesh.n_points, mesh.n_points + n_added)
@@ -334,7 +346,7 @@ def _build_sections(mesh: Mesh, axis: int, positions: np.ndarray, lower_ends: np
         nodes = index_dtype(mesh.n_points + n_added)
         part = np.empty((dim, m.size), dtype=index_dtype(n_cuts + first.size))
         for a in range(dim):
-            np.add(cut[a::dim], n_cuts, out=part[a], casting="unsafe")
+            np.add(cut[a::dim], part.dtype.type(n_cuts), out=part[a], casting="unsafe")
         corners.append(part.T)
         del cut
         starts.append(start.astype(nodes, copy=False))
@@ -375,10 +387,13 @@ def _cut_edges(start: np.ndarray, end: np.ndarray) -> tuple:
     del key
     first = order[distinct]  # where each cut edge is used first, in key order
     by_use = _sort_order(first.astype(np.int64), _bits(distinct.size))[0]  # distinct: any sort orders alike
-    number = np.empty(first.size, dtype=np.int64)
-    number[by_use] = np.arange(first.size)
-    cut = np.empty(distinct.size, dtype=np.int64)
-    cut[order] = number[np.cumsum(distinct) - 1]
+    index = index_dtype(distinct.size)  # int32 below 2^31 corners: half the bytes to write and read
+    number = np.empty(first.size, dtype=index)
+    number[by_use] = np.arange(first.size, dtype=index)
+    group = np.cumsum(distinct, dtype=np.intp)  # each sorted corner's edge, in key order, from 1
+    group -= 1
+    cut = np.empty(distinct.size, dtype=index)
+    cut[order.astype(np.intp, copy=False)] = number[group]
     return cut, first[by_use]
 
 
