@@ -141,18 +141,13 @@ def _plane_pieces(mesh: Mesh, axis: int, position: float, lower_end: bool, cells
     # to write); the nodes are read through the slots below, the offsets again per cut edge
     slot = _sorted_corners([column[rows] for column in s], values=False)[1]
     del s
-    # every piece corner at once: the simplex row and the two sorted corners of its edge, in the
-    # order the cases list them (pieces of one case by simplex, case by case)
-    row, i, j = _piece_edges(below, dim)
-    first, second = row * k + i, row * k + j  # (n, dim) flat positions in the sorted corner arrays
-    del i, j, below
-    shape = first.shape
-    slot = slot.ravel()
-    nodes, base = nodes.ravel(), rows[row] * k
-    parent = parent[row[:, 0]]  # each piece's cell
-    del row, rows
-    start, end = nodes[base + slot[first]], nodes[base + slot[second]]
-    del nodes, base, slot, first, second
+    # each crossed simplex's nodes in increasing s (one gather), then every piece corner's two
+    # nodes read from its simplex's row, in the order the cases list them
+    ordered = nodes.ravel()[(rows * k)[:, None] + slot]
+    del nodes, rows, slot
+    start, end, parent = _piece_nodes(ordered, below, parent, dim)
+    shape = start.shape
+    del ordered, below
     # the simplices go; the split's centres are still read below
     split = replace(split, simplices=np.empty((0, k), dtype=np.int64), owner=np.empty(0, dtype=np.int64))
     edges = _cut_edges(start, end)
@@ -206,23 +201,23 @@ _CASES = MappingProxyType({
 })
 
 
-def _piece_edges(below: np.ndarray, dim: int) -> tuple:
-    """Simplex row (n, dim) and sorted corners i, j (n, dim) of every piece corner.
+def _piece_nodes(ordered: np.ndarray, below: np.ndarray, parent: np.ndarray, dim: int) -> tuple:
+    """Start and end nodes (n, dim) and cell (n,) of every piece, from each crossed simplex's nodes
+    in increasing offset (``ordered``, (m, dim + 1)) and corners below the plane (``below``).
 
     Pieces are listed case by case (a triangle for one corner below, for three, then the two
     triangles of a quadrilateral for two, each over all its simplices in turn), every case
     over its simplices in order.
     """
-    rows, i, j = [], [], []
+    starts, ends, parents = [], [], []
     for count, pieces in _CASES[dim]:
         chosen = np.flatnonzero(below == count)
+        rows, owner = ordered[chosen], parent[chosen]
         for piece in pieces:
-            rows.append(chosen)
-            i.append(np.array([a for a, _ in piece]))
-            j.append(np.array([b for _, b in piece]))
-    sizes = [r.size for r in rows]
-    row = np.repeat(np.concatenate(rows)[:, None], dim, axis=1)
-    return (row, np.repeat(np.stack(i), sizes, axis=0), np.repeat(np.stack(j), sizes, axis=0))
+            starts.append(rows[:, [a for a, _ in piece]])
+            ends.append(rows[:, [b for _, b in piece]])
+            parents.append(owner)
+    return np.concatenate(starts), np.concatenate(ends), np.concatenate(parents)
 
 
 def _sorted_corners(columns: list, *, values: bool = True) -> tuple:
