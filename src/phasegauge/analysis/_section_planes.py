@@ -209,15 +209,24 @@ def _piece_nodes(ordered: np.ndarray, below: np.ndarray, parent: np.ndarray, dim
     triangles of a quadrilateral for two, each over all its simplices in turn), every case
     over its simplices in order.
     """
-    starts, ends, parents = [], [], []
-    for count, pieces in _CASES[dim]:
-        chosen = np.flatnonzero(below == count)
-        rows, owner = ordered[chosen], parent[chosen]
+    chosen = [np.flatnonzero(below == count) for count, _ in _CASES[dim]]
+    n = sum(rows.size * len(pieces) for rows, (_, pieces) in zip(chosen, _CASES[dim]))
+    # written column by column into C-ordered tables (a row-gather of columns comes out in
+    # Fortran order, and every later ravel would copy it)
+    start = np.empty((n, dim), dtype=ordered.dtype)
+    end = np.empty((n, dim), dtype=ordered.dtype)
+    owner = np.empty(n, dtype=parent.dtype)
+    at = 0
+    for rows, (_, pieces) in zip(chosen, _CASES[dim]):
+        part = ordered[rows]
         for piece in pieces:
-            starts.append(rows[:, [a for a, _ in piece]])
-            ends.append(rows[:, [b for _, b in piece]])
-            parents.append(owner)
-    return np.concatenate(starts), np.concatenate(ends), np.concatenate(parents)
+            span = slice(at, at + rows.size)
+            for corner, (i, j) in enumerate(piece):
+                start[span, corner] = part[:, i]
+                end[span, corner] = part[:, j]
+            owner[span] = parent[rows]
+            at += rows.size
+    return start, end, owner
 
 
 def _sorted_corners(columns: list, *, values: bool = True) -> tuple:
@@ -389,15 +398,17 @@ def _cut_edges(start: np.ndarray, end: np.ndarray) -> tuple:
     distinct = np.ones(key.size, dtype=bool)
     distinct[1:] = key[1:] != key[:-1]
     del key
-    first = order[distinct]  # where each cut edge is used first, in key order
-    by_use = _sort_order(first.astype(np.int64), _bits(distinct.size))[0]  # distinct: any sort orders alike
-    index = index_dtype(distinct.size)  # int32 below 2^31 corners: half the bytes to write and read
+    heads = np.flatnonzero(distinct)  # each cut edge's first place in key order
+    del distinct
+    first = order[heads]  # where each cut edge is used first, in key order
+    n = order.size
+    by_use = _sort_order(first.astype(np.int64), _bits(n))[0]  # distinct: any sort orders alike
+    index = index_dtype(n)  # int32 below 2^31 corners: half the bytes to write and read
     number = np.empty(first.size, dtype=index)
     number[by_use] = np.arange(first.size, dtype=index)
-    group = np.cumsum(distinct, dtype=np.intp)  # each sorted corner's edge, in key order, from 1
-    group -= 1
-    cut = np.empty(distinct.size, dtype=index)
-    cut[order.astype(np.intp, copy=False)] = number[group]
+    cut = np.empty(n, dtype=index)
+    # each sorted corner takes its edge's number: the numbers repeated over the edges' runs
+    cut[order.astype(np.intp, copy=False)] = np.repeat(number, np.diff(heads, append=n))
     return cut, first[by_use]
 
 
