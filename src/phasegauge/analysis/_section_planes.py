@@ -142,7 +142,9 @@ def _plane_pieces(mesh: Mesh, axis: int, position: float, lower_end: bool, cells
     # from its simplex's row, in the order the cases list them; the offsets again per cut edge
     rank = _corner_ranks([column[rows] for column in s])
     del s
-    ordered = _placed(rank, [nodes[rows, j] for j in range(k)])
+    # int32 node ids where they fit: half the bytes for the piece tables and their key
+    narrow = index_dtype(table.size)
+    ordered = _placed(rank, [nodes[rows, j].astype(narrow, copy=False) for j in range(k)])
     del nodes, rows, rank
     start, end, parent = _piece_nodes(ordered, below, parent, dim)
     shape = start.shape
