@@ -114,9 +114,10 @@ def _plane_pieces(mesh: Mesh, axis: int, position: float, lower_end: bool, cells
                   columns: _NodeColumns) -> tuple:
     """The section of ``cells`` by one plane: pieces and their corners on the cut edges.
 
-    Returns the piece measures (n,), parents (n,), corner start and end nodes (n, dimension),
-    corner weights t (n, dimension) and the corners of the split's added centres
-    (a list of (m, k) arrays, in node order). The nodes are numbered as the split of
+    Returns the piece measures (n,), parents (n,), per cut edge its start and end nodes and
+    weight t (m,), the corners of the split's added centres (a list of (m, k) arrays, in node
+    order) and the plane's cut edges (:func:`_cut_edges`: each piece corner's cut edge (n *
+    dimension,) and each cut edge's first corner). The nodes are numbered as the split of
     ``cells`` numbers them (added centres from ``mesh.n_points`` on); the caller renumbers
     the centres of the distinct cut edges (:func:`_renumbered`). ``columns``: the node
     coordinates' buffers of the operator being built.
@@ -136,37 +137,44 @@ def _plane_pieces(mesh: Mesh, axis: int, position: float, lower_end: bool, cells
     rows = np.flatnonzero(crossed)
     del crossed
     parent, below = parent[rows], below[rows]
-    # each crossed simplex's corners in increasing s: the sorted s, and the corner slot each came
-    # from (int8: little to write); the nodes are read through the slots below
-    s, slot = _sorted_corners([column[rows] for column in s])
-    # every piece corner at once: the simplex row and the two sorted corners of its edge, in the
-    # order the cases list them (pieces of one case by simplex, case by case)
-    row, i, j = _piece_edges(below, dim)
-    first, second = row * k + i, row * k + j  # (n, dim) flat positions in the sorted corner arrays
-    del i, j, below
-    s, slot = s.ravel(), slot.ravel()
-    si = s[first]
-    t = si / (si - s[second])
-    del si, s
-    nodes, base = nodes.ravel(), rows[row] * k
-    parent = parent[row[:, 0]]  # each piece's cell
-    del row, rows
-    start, end = nodes[base + slot[first]], nodes[base + slot[second]]
-    del nodes, base, slot, first, second
+    # each crossed simplex's nodes in increasing s, as a stable argsort orders them (written to
+    # their places by rank: no argsort, no gathers), then every piece corner's two nodes read
+    # from its simplex's row, in the order the cases list them; the offsets again per cut edge
+    rank = _corner_ranks([column[rows] for column in s])
+    del s
+    # int32 node ids where they fit: half the bytes for the piece tables and their key
+    narrow = index_dtype(table.size)
+    ordered = _placed(rank, [nodes[rows, j].astype(narrow, copy=False) for j in range(k)])
+    del nodes, rows, rank
+    start, end, parent = _piece_nodes(ordered, below, parent, dim)
+    shape = start.shape
+    del ordered, below
     # the simplices go; the split's centres are still read below
     split = replace(split, simplices=np.empty((0, k), dtype=np.int64), owner=np.empty(0, dtype=np.int64))
+    edges = _cut_edges(start, end)
+    cut, first = edges
+    # t and a piece corner's place depend on its cut edge only (its two nodes): formed once per cut
+    # edge (a sixth of the corners), then read by the corners; the same numbers bit for bit as
+    # forming them at every corner from the sorted offsets (each is the node's offset again)
+    start, end = start.ravel()[first], end.ravel()[first]
+    low = table[start] - position
+    t = low / (low - (table[end] - position))
+    del low
+    cut = cut.astype(np.intp)  # numpy gathers several times faster with intp indices
     X = []  # per in-plane axis, (n, dim): the corners, as the split interpolates them
     for a in others:
         column = columns.at(split, a)
         Xi = column[start]
-        X.append(Xi + t * (column[end] - Xi))
+        Xi += t * (column[end] - Xi)
+        X.append(Xi[cut].reshape(shape))
+    del cut
     if dim == 2:
         measures = np.abs(X[0][:, 1] - X[0][:, 0])
     else:
         d1 = [x[:, 1] - x[:, 0] for x in X]
         d2 = [x[:, 2] - x[:, 0] for x in X]
         measures = 0.5 * np.abs(d1[0] * d2[1] - d1[1] * d2[0])
-    return measures, parent, start, end, t, centres
+    return measures, parent, start, end, t, centres, edges
 
 
 def _renumbered(nodes: np.ndarray, n_points: int, first_added: int) -> np.ndarray:
@@ -194,23 +202,32 @@ _CASES = MappingProxyType({
 })
 
 
-def _piece_edges(below: np.ndarray, dim: int) -> tuple:
-    """Simplex row (n, dim) and sorted corners i, j (n, dim) of every piece corner.
+def _piece_nodes(ordered: np.ndarray, below: np.ndarray, parent: np.ndarray, dim: int) -> tuple:
+    """Start and end nodes (n, dim) and cell (n,) of every piece, from each crossed simplex's nodes
+    in increasing offset (``ordered``, (m, dim + 1)) and corners below the plane (``below``).
 
     Pieces are listed case by case (a triangle for one corner below, for three, then the two
     triangles of a quadrilateral for two, each over all its simplices in turn), every case
     over its simplices in order.
     """
-    rows, i, j = [], [], []
-    for count, pieces in _CASES[dim]:
-        chosen = np.flatnonzero(below == count)
+    chosen = [np.flatnonzero(below == count) for count, _ in _CASES[dim]]
+    n = sum(rows.size * len(pieces) for rows, (_, pieces) in zip(chosen, _CASES[dim]))
+    # written column by column into C-ordered tables (a row-gather of columns comes out in
+    # Fortran order, and every later ravel would copy it)
+    start = np.empty((n, dim), dtype=ordered.dtype)
+    end = np.empty((n, dim), dtype=ordered.dtype)
+    owner = np.empty(n, dtype=parent.dtype)
+    at = 0
+    for rows, (_, pieces) in zip(chosen, _CASES[dim]):
+        part = ordered[rows]
         for piece in pieces:
-            rows.append(chosen)
-            i.append(np.array([a for a, _ in piece]))
-            j.append(np.array([b for _, b in piece]))
-    sizes = [r.size for r in rows]
-    row = np.repeat(np.concatenate(rows)[:, None], dim, axis=1)
-    return (row, np.repeat(np.stack(i), sizes, axis=0), np.repeat(np.stack(j), sizes, axis=0))
+            span = slice(at, at + rows.size)
+            for corner, (i, j) in enumerate(piece):
+                start[span, corner] = part[:, i]
+                end[span, corner] = part[:, j]
+            owner[span] = parent[rows]
+            at += rows.size
+    return start, end, owner
 
 
 def _sorted_corners(columns: list) -> tuple:
@@ -218,10 +235,19 @@ def _sorted_corners(columns: list) -> tuple:
 
     ``columns``: the offsets of each corner, one array (n,) per corner. Returns the sorted
     offsets (n, k) and the corner each came from (n, k), int8 (the stable argsort itself).
-    By ranks: a corner's place is the number of corners before it (lower offset, or equal and
-    earlier), from one comparison per pair of columns; each column is then written to its
-    place: no per-row argsort and gathers (2.4x faster than exchanges on 65 000 tetrahedra).
+    By ranks (:func:`_corner_ranks`), each column then written to its place
+    (:func:`_placed`): no per-row argsort and gathers (2.4x faster than exchanges on 65 000
+    tetrahedra).
     """
+    rank = _corner_ranks(columns)
+    slots = [np.full(columns[0].shape[0], j, dtype=np.int8) for j in range(len(columns))]
+    return _placed(rank, columns), _placed(rank, slots)
+
+
+def _corner_ranks(columns: list) -> list:
+    """Per corner, its place (n,) int8 among the simplex's corners in increasing offset, ties in
+    corner order: the number of corners before it (lower offset, or equal and earlier), from
+    one comparison per pair of columns. ``columns``: the offsets, one array (n,) per corner."""
     n, k = columns[0].shape[0], len(columns)
     rank = [np.zeros(n, dtype=np.int8) for _ in range(k)]  # at most k - 1
     for a in range(k):
@@ -229,15 +255,18 @@ def _sorted_corners(columns: list) -> tuple:
             before = columns[b] < columns[a]  # b first only when strictly lower: ties stay in order
             rank[a] += before
             rank[b] += ~before
-    sorted_s = np.empty((n, k), dtype=columns[0].dtype)
-    slot = np.empty((n, k), dtype=np.int8)
-    flat_s, flat_slot = sorted_s.reshape(-1), slot.reshape(-1)
+    return rank
+
+
+def _placed(rank: list, columns: list) -> np.ndarray:
+    """The table (n, k) whose row i holds ``columns[j][i]`` at place ``rank[j][i]``."""
+    n, k = columns[0].shape[0], len(columns)
+    out = np.empty((n, k), dtype=columns[0].dtype)
+    flat = out.reshape(-1)
     base = np.arange(0, n * k, k)
     for j in range(k):
-        place = base + rank[j]
-        flat_s[place] = columns[j]
-        flat_slot[place] = j
-    return sorted_s, slot
+        flat[base + rank[j]] = columns[j]
+    return out
 
 
 def _layer_pieces(mesh: Mesh, axis: int, position: float, lower_end: bool, cells: np.ndarray,
@@ -250,11 +279,13 @@ def _layer_pieces(mesh: Mesh, axis: int, position: float, lower_end: bool, cells
     cell: they are taken from the first cell (by :func:`_plane_pieces` itself) and repeated
     for the others, each with its own corner coordinates. The arrays are the ones
     :func:`_plane_pieces` returns for all the cells, value for value and in its order (the
-    first cell's pieces one by one, each over all the cells): the same floating-point
-    operations on the same numbers. ``columns`` as for :func:`_plane_pieces`.
+    first cell's pieces one by one, each over all the cells), but with start, end and t per
+    piece corner (n, dimension) and no cut edges (None): the same floating-point operations
+    on the same numbers. ``columns`` as for :func:`_plane_pieces`.
     """
     if cells.size < 2:
         return None
+    dim = mesh.dimension
     offsets = mesh.block_offsets
     b = int(np.searchsorted(offsets, cells[0], side="right")) - 1
     if cells[-1] >= offsets[b + 1]:
@@ -270,16 +301,16 @@ def _layer_pieces(mesh: Mesh, axis: int, position: float, lower_end: bool, cells
     if not (s == s[0]).all():
         return None
     template = _plane_pieces(mesh, axis, position, lower_end, cells[:1], columns)
-    measures, parents, start, end, t, centres = template
+    measures, parents, start, end, t, centres, (cut, _) = template
     if centres or measures.size == 0:
         return None
+    start, end = start[cut].reshape(-1, dim), end[cut].reshape(-1, dim)  # per piece corner
     row = conn[0]
     if np.unique(row).size != row.size:
         return None  # a corner repeated: the first cell's points do not name its corners
     slot = {int(point): j for j, point in enumerate(row)}
     j_start = np.vectorize(slot.__getitem__, otypes=[np.intp])(start)  # (k, dim) local corners
     j_end = np.vectorize(slot.__getitem__, otypes=[np.intp])(end)
-    dim = mesh.dimension
     others = [a for a in range(dim) if a != axis]
     # (k pieces, n cells, dim corners): piece-major, as _plane_pieces orders its rows
     S, E = conn[:, j_start].transpose(1, 0, 2), conn[:, j_end].transpose(1, 0, 2)
@@ -298,7 +329,7 @@ def _layer_pieces(mesh: Mesh, axis: int, position: float, lower_end: bool, cells
         pieces = 0.5 * np.abs(d1[0] * d2[1] - d1[1] * d2[0])
     k, n = S.shape[0], cells.size
     return (pieces.reshape(-1), np.tile(cells.astype(parents.dtype), k), S.reshape(k * n, dim).astype(start.dtype),
-            E.reshape(k * n, dim).astype(end.dtype), weight.reshape(k * n, dim), [])
+            E.reshape(k * n, dim).astype(end.dtype), weight.reshape(k * n, dim), [], None)
 
 
 def _build_sections(mesh: Mesh, axis: int, positions: np.ndarray, lower_ends: np.ndarray,
@@ -314,15 +345,20 @@ def _build_sections(mesh: Mesh, axis: int, positions: np.ndarray, lower_ends: np
         crossed = (lo <= position) & (hi > position) if lower_end else (lo < position) & (hi >= position)
         cells = np.nonzero(crossed)[0]
         del crossed
-        m, parent, start, end, t, plane_centres = (
+        m, parent, start, end, t, plane_centres, edges = (
             _layer_pieces(mesh, axis, float(position), bool(lower_end), cells, columns)
             or _plane_pieces(mesh, axis, float(position), bool(lower_end), cells, columns))
         del cells
-        cut, first = _cut_edges(start, end)
+        if edges is None:  # start, end and t per piece corner
+            cut, first = _cut_edges(start, end)
+            start, end, t = start.ravel()[first], end.ravel()[first], t.ravel()[first]
+        else:  # per cut edge already
+            cut, first = edges
+        del edges
         # the centres numbered after those of earlier planes: a strictly increasing map of the
         # node ids, so the edge keys above sort and match alike before and after it
-        start = _renumbered(start.ravel()[first], mesh.n_points, mesh.n_points + n_added)
-        end = _renumbered(end.ravel()[first], mesh.n_points, mesh.n_points + n_added)
+        start = _renumbered(start, mesh.n_points, mesh.n_points + n_added)
+        end = _renumbered(end, mesh.n_points, mesh.n_points + n_added)
         n_added += sum(c.shape[0] for c in plane_centres)
         measures.append(m)
         if cell_fields:  # the pieces' cells serve cell fields only
@@ -334,12 +370,12 @@ def _build_sections(mesh: Mesh, axis: int, positions: np.ndarray, lower_ends: np
         nodes = index_dtype(mesh.n_points + n_added)
         part = np.empty((dim, m.size), dtype=index_dtype(n_cuts + first.size))
         for a in range(dim):
-            np.add(cut[a::dim], n_cuts, out=part[a], casting="unsafe")
+            np.add(cut[a::dim], part.dtype.type(n_cuts), out=part[a], casting="unsafe")
         corners.append(part.T)
         del cut
         starts.append(start.astype(nodes, copy=False))
         ends.append(end.astype(nodes, copy=False))
-        weights.append(t.ravel()[first])
+        weights.append(t)
         del start, end, t  # the plane's full-size arrays go before the next plane is cut
         centres += plane_centres
         n_cuts += first.size
@@ -373,12 +409,17 @@ def _cut_edges(start: np.ndarray, end: np.ndarray) -> tuple:
     distinct = np.ones(key.size, dtype=bool)
     distinct[1:] = key[1:] != key[:-1]
     del key
-    first = order[distinct]  # where each cut edge is used first, in key order
-    by_use = _sort_order(first.astype(np.int64), _bits(distinct.size))[0]  # distinct: any sort orders alike
-    number = np.empty(first.size, dtype=np.int64)
-    number[by_use] = np.arange(first.size)
-    cut = np.empty(distinct.size, dtype=np.int64)
-    cut[order] = number[np.cumsum(distinct) - 1]
+    heads = np.flatnonzero(distinct)  # each cut edge's first place in key order
+    del distinct
+    first = order[heads]  # where each cut edge is used first, in key order
+    n = order.size
+    by_use = _sort_order(first.astype(np.int64), _bits(n))[0]  # distinct: any sort orders alike
+    index = index_dtype(n)  # int32 below 2^31 corners: half the bytes to write and read
+    number = np.empty(first.size, dtype=index)
+    number[by_use] = np.arange(first.size, dtype=index)
+    cut = np.empty(n, dtype=index)
+    # each sorted corner takes its edge's number: the numbers repeated over the edges' runs
+    cut[order.astype(np.intp, copy=False)] = np.repeat(number, np.diff(heads, append=n))
     return cut, first[by_use]
 
 
