@@ -45,6 +45,7 @@ from ..model.axes import AXIS_INDEX, AXIS_NAMES
 from ..model.corners import corner_extremes
 from ..model.fields import cell_values, vector_values
 from ..model.mesh import Mesh
+from ..model._centroids import cell_centroids_of
 from ..model._grouping import index_dtype
 from ._band_sharing import finish_far_band, share_band
 from ._droplet_graph import join_periodic, neighbour_table, periodic_pairs, pieces
@@ -222,7 +223,7 @@ def _unwrap(mesh: Mesh, near: _NearCells, member: np.ndarray, root: np.ndarray, 
     Core cells move by their piece's shift, band cells next to their root cell.
     """
     cells, core_local = near.cells, near.core_local
-    X = np.take(mesh.cell_centroids, cells[member], axis=0)
+    X = cell_centroids_of(mesh, cells[member])  # made from the corners on a split mesh (it keeps none)
     box_lo, box_hi = corner_extremes(mesh, mesh.coordinates, cells[core_local])  # corner boxes
     if not axes:
         return X, box_lo, box_hi
@@ -231,10 +232,10 @@ def _unwrap(mesh: Mesh, near: _NearCells, member: np.ndarray, root: np.ndarray, 
         shift[core_local, ax] = offset[piece[core_local], j]
     band_member = member[~near.core[member]]
     source = root[band_member]
-    centroid_all = mesh.cell_centroids
+    at_source, at_band = cell_centroids_of(mesh, cells[source]), cell_centroids_of(mesh, cells[band_member])
     for ax, (_, _, period) in zip(axes, links):
-        ref = centroid_all[cells[source], ax] + shift[source, ax]
-        shift[band_member, ax] = period * np.round((ref - centroid_all[cells[band_member], ax]) / period)
+        ref = at_source[:, ax] + shift[source, ax]
+        shift[band_member, ax] = period * np.round((ref - at_band[:, ax]) / period)
     return X + shift[member], box_lo + shift[core_local], box_hi + shift[core_local]
 
 
