@@ -11,6 +11,7 @@ import numpy as np
 from scipy import sparse
 from scipy.sparse import csgraph
 
+from ..model._centroids import cell_centroids_of
 from ..model._grouping import index_dtype
 from ..model.mesh import Mesh
 
@@ -26,11 +27,11 @@ def _face_lengths(mesh: Mesh, pairs: np.ndarray, cells: np.ndarray | None = None
 
     ``pairs`` in mesh numbers, or in the local numbers of ``cells``.
     """
-    centroids = mesh.cell_centroids
     out = np.empty(pairs.shape[0])
-    for lo in range(0, pairs.shape[0], _PAIR_CHUNK):
+    for lo in range(0, pairs.shape[0], _PAIR_CHUNK):  # a split mesh's centroids made for the chunk's cells
         part = pairs[lo:lo + _PAIR_CHUNK] if cells is None else cells[pairs[lo:lo + _PAIR_CHUNK]]
-        out[lo:lo + part.shape[0]] = np.linalg.norm(centroids[part[:, 0]] - centroids[part[:, 1]], axis=1)
+        out[lo:lo + part.shape[0]] = np.linalg.norm(cell_centroids_of(mesh, part[:, 0])
+                                                    - cell_centroids_of(mesh, part[:, 1]), axis=1)
     return out
 
 

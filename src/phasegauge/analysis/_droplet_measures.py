@@ -72,12 +72,11 @@ def droplet_boxes(core_labels: np.ndarray, box_lo: np.ndarray, box_hi: np.ndarra
     return bmin, bmax
 
 
-def shape_factors(dim: int, volume: np.ndarray, diameter: np.ndarray, shared_out: np.ndarray, icells, isizes,
-                  n_drop: int) -> tuple:
-    """Circularity (2D) and sphericity (3D) from the contour elements in each droplet's shared cells."""
+def shape_factors(dim: int, volume: np.ndarray, diameter: np.ndarray, owner, isizes, n_drop: int) -> tuple:
+    """Circularity (2D) and sphericity (3D) from the contour elements in each droplet's shared cells
+    (``owner``: the droplet of each element's cell, -1 for none; None without elements)."""
     size = np.full(n_drop, np.nan)
-    if icells is not None and icells.size:
-        owner = shared_out[icells]
+    if owner is not None and owner.size:
         ok = owner >= 0
         size = np.bincount(owner[ok], weights=isizes[ok], minlength=n_drop).astype(float)
         size[size <= 0] = np.nan

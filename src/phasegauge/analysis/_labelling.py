@@ -45,6 +45,7 @@ from ..model.axes import AXIS_INDEX, AXIS_NAMES
 from ..model.corners import corner_extremes
 from ..model.fields import cell_values, vector_values
 from ..model.mesh import Mesh
+from ..model._centroids import cell_centroids_of
 from ..model._grouping import index_dtype
 from ._band_sharing import finish_far_band, share_band
 from ._droplet_graph import join_periodic, neighbour_table, periodic_pairs, pieces
@@ -156,12 +157,10 @@ def _contour_arrays(mesh: Mesh, interface_cells, interface_sizes) -> tuple:
 class _NearCells:
     """The cells with c above the band floor (cores and band), numbered locally in mesh order.
 
-    ``local`` maps a mesh cell (and -1, its last entry) to its local number, ``k`` standing for
-    "no cell"; ``neighbours`` are the face neighbours in local numbers.
+    ``neighbours`` are the face neighbours in local numbers, ``k`` standing for "no cell".
     """
 
     cells: np.ndarray
-    local: np.ndarray
     c: np.ndarray
     core: np.ndarray
     core_local: np.ndarray
@@ -172,7 +171,11 @@ class _NearCells:
         return int(self.cells.size)
 
 
-def _near_cells(mesh: Mesh, c0: np.ndarray, *, level: float, band_floor: float) -> _NearCells:
+def _near_cells(mesh: Mesh, c0: np.ndarray, *, level: float, band_floor: float) -> tuple:
+    """The near cells, and the local number of every mesh cell (and of -1, its last entry; ``k``: none).
+
+    The mesh-wide local numbers are returned apart, so the caller lets them go once used.
+    """
     cells = np.flatnonzero(c0 > band_floor)
     k = cells.size
     # entry n_cells (index -1): "no cell"; int32 where it fits (the local neighbour rows take its type)
@@ -184,8 +187,8 @@ def _near_cells(mesh: Mesh, c0: np.ndarray, *, level: float, band_floor: float) 
     neighbours = np.empty((k, table.shape[1]), dtype=local.dtype)
     for lo in range(0, k, _ROW_CHUNK):  # per chunk of rows: no second (k, m) array of mesh numbers
         np.take(local, np.take(table, cells[lo:lo + _ROW_CHUNK], axis=0), out=neighbours[lo:lo + _ROW_CHUNK])
-    return _NearCells(cells=cells, local=local, c=c_near, core=core, core_local=np.flatnonzero(core),
-                      neighbours=neighbours)
+    return _NearCells(cells=cells, c=c_near, core=core, core_local=np.flatnonzero(core),
+                      neighbours=neighbours), local
 
 
 def _number_droplets(near: _NearCells, piece: np.ndarray, droplet_of_piece: np.ndarray, n_drop: int,
@@ -222,7 +225,7 @@ def _unwrap(mesh: Mesh, near: _NearCells, member: np.ndarray, root: np.ndarray, 
     Core cells move by their piece's shift, band cells next to their root cell.
     """
     cells, core_local = near.cells, near.core_local
-    X = np.take(mesh.cell_centroids, cells[member], axis=0)
+    X = cell_centroids_of(mesh, cells[member])  # made from the corners on a split mesh (it keeps none)
     box_lo, box_hi = corner_extremes(mesh, mesh.coordinates, cells[core_local])  # corner boxes
     if not axes:
         return X, box_lo, box_hi
@@ -231,18 +234,27 @@ def _unwrap(mesh: Mesh, near: _NearCells, member: np.ndarray, root: np.ndarray, 
         shift[core_local, ax] = offset[piece[core_local], j]
     band_member = member[~near.core[member]]
     source = root[band_member]
-    centroid_all = mesh.cell_centroids
+    at_source, at_band = cell_centroids_of(mesh, cells[source]), cell_centroids_of(mesh, cells[band_member])
     for ax, (_, _, period) in zip(axes, links):
-        ref = centroid_all[cells[source], ax] + shift[source, ax]
-        shift[band_member, ax] = period * np.round((ref - centroid_all[cells[band_member], ax]) / period)
+        ref = at_source[:, ax] + shift[source, ax]
+        shift[band_member, ax] = period * np.round((ref - at_band[:, ax]) / period)
     return X + shift[member], box_lo + shift[core_local], box_hi + shift[core_local]
 
 
-def _on_mesh(mesh: Mesh, near: _NearCells, local_values: np.ndarray) -> np.ndarray:
-    """Local droplet numbers as an int32 array over all mesh cells, -1 off the near cells."""
+def _on_mesh(mesh: Mesh, cells: np.ndarray, local_values: np.ndarray) -> np.ndarray:
+    """Local droplet numbers as an int32 array over all mesh cells, -1 off the near ``cells``."""
     out = np.full(mesh.n_cells, -1, dtype=np.int32)
-    out[near.cells] = local_values
+    out[cells] = local_values
     return out
+
+
+def _at_cells(cells: np.ndarray, local_values: np.ndarray, query: np.ndarray) -> np.ndarray:
+    """The local value (droplet number) of each mesh cell of ``query``, -1 off the near ``cells``
+    (sorted): as ``_on_mesh(...)[query]``, without the mesh-wide array."""
+    if not cells.size:
+        return np.full(query.shape, -1, dtype=np.int64)
+    at = np.minimum(np.searchsorted(cells, query), cells.size - 1)
+    return np.where(cells[at] == query, local_values[at], -1)
 
 
 # --------------------------------------------------------------------------- public
@@ -378,7 +390,7 @@ def label_droplets(mesh: Mesh, c_cell, *, level: float = 0.5, connectivity: str 
     del c  # a mesh-wide array (rescaled between the plateaus): c0 from here on
     dV = mesh.cell_measures
     # all further work on the near cells (c above the band floor: cores and band)
-    near = _near_cells(mesh, c0, level=level, band_floor=band_floor)
+    near, local = _near_cells(mesh, c0, level=level, band_floor=band_floor)
     weights = c0  # c dV, in place: c0 is this call's own array and not read again
     weights *= dV
     del c0
@@ -386,7 +398,8 @@ def label_droplets(mesh: Mesh, c_cell, *, level: float = 0.5, connectivity: str 
 
     n_pieces, piece = pieces(mesh, cells, near.core, near.neighbours, connectivity)
     links = [periodic_pairs(mesh, ax) for ax in axes]  # (pairs, low end, period) per axis
-    local_links = [(near.local[pairs], lo, period) for pairs, lo, period in links]
+    local_links = [(local[pairs], lo, period) for pairs, lo, period in links]
+    del local  # mesh-wide (4 bytes a cell): the near cells' own numbers from here on
     n_drop, droplet_of_piece, offset, spanning = join_periodic(n_pieces, piece, local_links)
     label, spanning = _number_droplets(near, piece, droplet_of_piece, n_drop, spanning)
     shared, root = _share(mesh, near, label, links, local_links)
@@ -395,15 +408,18 @@ def label_droplets(mesh: Mesh, c_cell, *, level: float = 0.5, connectivity: str 
     g = shared[member]
     member_cells = cells[member]
     X, box_lo, box_hi = _unwrap(mesh, near, member, root, piece, offset, axes, links)
+    del root, piece
     w = weights[member_cells]
     periods = [(ax, lo, period) for ax, (_, lo, period) in zip(axes, links)]
     volume, centroid, h_local, back = volume_integrals(mesh, g, w, member_cells, X, n_drop, periods)
+    del X
     threshold_volume = np.bincount(label[core_local], weights=dV[cells[core_local]], minlength=n_drop)
     vol_pos = np.where(volume > 0, volume, np.nan)
     diameter = 2.0 * np.sqrt(vol_pos / np.pi) if mesh.dimension == 2 else np.cbrt(6.0 * vol_pos / np.pi)
     bmin, bmax = droplet_boxes(label[core_local], box_lo, box_hi, n_drop, back)
-    labels_out, shared_out = _on_mesh(mesh, near, label), _on_mesh(mesh, near, shared)
-    circularity, sphericity = shape_factors(mesh.dimension, vol_pos, diameter, shared_out, icells, isizes, n_drop)
+    del box_lo, box_hi
+    owner = None if icells is None else _at_cells(cells, shared, icells)
+    circularity, sphericity = shape_factors(mesh.dimension, vol_pos, diameter, owner, isizes, n_drop)
 
     columns = {"droplet": np.arange(n_drop, dtype=np.int64), "volume": volume,
                "threshold_volume": threshold_volume, "equivalent_diameter": diameter,
@@ -412,7 +428,10 @@ def label_droplets(mesh: Mesh, c_cell, *, level: float = 0.5, connectivity: str 
                "spanning": spanning.astype(bool)}
     table = droplet_table(mesh, columns, centroid=centroid, bmin=bmin, bmax=bmax,
                           velocity_mean=mean_velocity(mesh, vel, g, w, member_cells, n_drop))
-    return DropletLabels(labels=labels_out, shared_labels=shared_out,
+    del near, g, w, member, member_cells  # the mesh-wide label arrays made last, without them
+    labels_out = _on_mesh(mesh, cells, label)
+    del label
+    return DropletLabels(labels=labels_out, shared_labels=_on_mesh(mesh, cells, shared),
                          table=table, weights=weights, level=given_level, periodic=names)
 
 

@@ -8,6 +8,11 @@ those of the previous one, so only one step's labels are held at a time:
    the moved point is looked up in the new step: the same cell when the mesh
    is the same and nothing moved, otherwise the cell with the nearest
    centroid (a KD-tree of the new step's centroids, so the mesh may change).
+   On a mesh whose cells a reader split into pieces (polyhedra into tetrahedra) the
+   search is over the whole cells: a piece moves from its whole cell's centroid
+   and lands in the whole cell with the nearest centroid, which counts for the
+   droplet of its labelled piece of largest ``c dV`` (one centroid kept a whole
+   cell, not one a piece).
    The overlap of previous droplet p with new droplet q is the sum of ``c dV``
    of p's cells that land in q. A pair is linked when the overlap is at least
    ``min_overlap`` times the smaller of the two core volumes.
@@ -33,6 +38,7 @@ from scipy.spatial import cKDTree
 from ..errors import OptionError
 from ..model.axes import AXIS_NAMES
 from ..model.mesh import Mesh
+from ..model.outline import MeshOutline
 from ._labelling import DropletLabels, _normalize_periodic
 
 __all__ = ["DropletTracker", "track_droplets", "EVENT_COLUMNS", "EVENT_KINDS"]
@@ -188,6 +194,8 @@ class DropletTracker:
         (:meth:`add` checks full label arrays first).
         """
         n_drop = len(table)
+        if isinstance(mesh, Mesh):  # what tracking reads of it (a split mesh's whole-cell centroids)
+            mesh = MeshOutline.of(mesh, centroids=True)
         if self._previous is not None and not step > self._previous["step"]:
             raise OptionError(f"steps must come in increasing order: {step} after {self._previous['step']}",
                               fix="add the steps in order")
@@ -228,8 +236,8 @@ class DropletTracker:
         self._count += 1
         return tracks
 
-    def _locate(self, mesh: Mesh, points: np.ndarray) -> np.ndarray:
-        """Cell of ``mesh`` whose centroid is nearest to each point."""
+    def _locate(self, mesh: MeshOutline, points: np.ndarray) -> np.ndarray:
+        """Cell of ``mesh`` whose centroid is nearest to each point (a whole cell of a split mesh)."""
         if self._tree[0] is not mesh:
             self._tree = (mesh, cKDTree(mesh.cell_centroids))
         return self._tree[1].query(points)[1]
@@ -243,18 +251,19 @@ class DropletTracker:
         mesh_p, mesh_c = prev["mesh"], cur["mesh"]
         shift = prev["velocity"] * dt
         moved = bool(np.any(shift != 0))
-        cur_labels = np.full(mesh_c.n_cells, -1, dtype=np.int64)
-        cur_labels[cur["cells"]] = cur["labels"]
         same_mesh = mesh_p is mesh_c or (mesh_p.n_cells == mesh_c.n_cells
                                          and mesh_p.signature == mesh_c.signature)
         if same_mesh and not moved:
-            landed = cur_labels[prev["cells"]]
+            landed = _labels_at(cur, prev["cells"])
         else:
-            points = mesh_p.cell_centroids[prev["cells"]] + shift[prev["labels"]]
+            parents = mesh_p.cell_parents
+            points = mesh_p.cell_centroids[prev["cells"] if parents is None else parents[prev["cells"]]]
+            points = points + shift[prev["labels"]]
             for ax in axes:
                 period = hi[ax] - lo[ax]
                 points[:, ax] = lo[ax] + np.mod(points[:, ax] - lo[ax], period)
-            landed = cur_labels[self._locate(mesh_c, points)]
+            found = self._locate(mesh_c, points)
+            landed = _labels_at(cur, found) if mesh_c.cell_parents is None else _whole_labels(cur, mesh_c)[found]
         hit = landed >= 0
         overlap = sparse.coo_matrix((prev["weights"][hit], (prev["labels"][hit], landed[hit])),
                                     shape=(n_prev, n_cur)).tocsr()
@@ -366,6 +375,27 @@ class DropletTracker:
         events = events[list(EVENT_COLUMNS)].reset_index(drop=True)
         events["step"] = events["step"].astype(droplets["step"].dtype if len(droplets) else np.int64)
         return droplets, events
+
+
+def _labels_at(step: dict, cells: np.ndarray) -> np.ndarray:
+    """Droplet of each of ``cells`` in ``step`` (-1: none), from its sorted labelled cells (no array
+    over every cell)."""
+    labelled = step["cells"]
+    if not labelled.size:
+        return np.full(len(cells), -1, dtype=np.int64)
+    at = np.minimum(np.searchsorted(labelled, cells), labelled.size - 1)
+    return np.where(labelled[at] == cells, step["labels"][at], -1)
+
+
+def _whole_labels(step: dict, outline: MeshOutline) -> np.ndarray:
+    """Droplet of each whole cell of a split mesh (-1: none): that of its labelled piece with the
+    largest ``c dV`` (the lowest piece number on a tie)."""
+    out = np.full(outline.cell_centroids.shape[0], -1, dtype=np.int64)
+    whole = outline.cell_parents[step["cells"]]
+    order = np.lexsort((-step["weights"], whole))  # by whole cell, heaviest piece first (stable)
+    first = order[np.concatenate([[True], whole[order][1:] != whole[order][:-1]])] if order.size else order
+    out[whole[first]] = step["labels"][first]
+    return out
 
 
 def _drop_remerges(droplets: pd.DataFrame, events: pd.DataFrame, within: int):

@@ -24,10 +24,10 @@ from functools import cached_property
 import numpy as np
 
 from ..errors import UnsupportedMeshError
+from ._centroids import cell_centroids_of, mesh_geometry
 from ._conversions import corner_sums, linear_point_values
 from ._faces import (cell_adjacency, face_pairs, face_rows, face_topology, grid_face_numbers, grouped_faces,
                      local_faces, row_owners, unique_edges)
-from ._geometry import cell_geometry
 from ._grouping import index_dtype, unique_ints
 from ._regular_grid import RegularGrid, find_regular_grid
 from .cells import CELL_DIMENSION, LINEAR_CORNERS
@@ -310,16 +310,8 @@ class Mesh:
     # --------------------------------------------------------------- geometry
     @cached_property
     def _geometry(self):
-        dim = self.dimension
-        X = self.coordinates
-        signed = np.empty(self.n_cells)
-        cent = np.empty((self.n_cells, dim))
-        for block, start in zip(self.blocks, self.block_offsets[:-1]):
-            sl = slice(int(start), int(start) + len(block))
-            cell_geometry(block.cell_type, X, block.connectivity, out=(signed[sl], cent[sl]))
-        signed.flags.writeable = False  # shared by every step (and :attr:`cell_measures`): read-only
-        cent.flags.writeable = False
-        return signed, cent
+        """Signed measures and centroids (None for a split mesh: :func:`._centroids.mesh_geometry`)."""
+        return mesh_geometry(self)
 
     @property
     def signed_measures(self) -> np.ndarray:
@@ -362,8 +354,13 @@ class Mesh:
 
     @property
     def cell_centroids(self) -> np.ndarray:
-        """Centroids (centres of area or volume), shape (n_cells, dimension)."""
-        return self._geometry[1]
+        """Centroids (centres of area or volume), shape (n_cells, dimension).
+
+        A mesh of split cells (:attr:`cell_parents`) keeps none: they are made on each read
+        (:func:`._centroids.cell_centroids_of` gives some cells' alone).
+        """
+        kept = self._geometry[1]
+        return kept if kept is not None else cell_centroids_of(self)
 
     @property
     def cell_sizes(self) -> np.ndarray:

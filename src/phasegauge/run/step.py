@@ -226,6 +226,7 @@ def analyse_step(step, options, *, contour_dir: str | None = None, reported_mesh
         result.label_values = found.labels[labelled].astype(np.int32)
         result.label_weights = np.asarray(found.weights)[labelled]
         result.droplets = table
+        del found, labelled  # labels and c dV of every cell (16 bytes a cell): not held through the sections
     if "mixing" in options.analyses:
         m.update(mixing.mixing_metrics(mesh, ind.cell, box=options.box))
         if options.segregation_scale:

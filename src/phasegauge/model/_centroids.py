@@ -1,0 +1,144 @@
+"""Cell centroids of split meshes: computed where they are read, not kept with the mesh.
+
+A mesh whose cells a reader split into pieces (:attr:`Mesh.cell_parents`: the tetrahedra of
+polyhedra, 24 for a six-faced cell) would keep ``n_cells x dimension`` floats of centroids for its
+whole life (137 MiB at 6M tetrahedra), though every reader after the first step takes some cells'
+centroids only. Such a mesh keeps its signed measures and its whole cells' centroids
+(:func:`mesh_geometry`, one pass); its readers take the centroids of the cells they need
+(:func:`cell_centroids_of`) or of the whole cells (:func:`whole_cell_centroids`). The numbers are those :func:`cell_geometry` gives for the
+whole block: it computes each cell from its own corners, so a cell's centroid does not depend on
+the other cells computed with it. A mesh of unsplit cells keeps its centroids as before.
+"""
+
+from __future__ import annotations
+
+import numpy as np
+
+from ._geometry import cell_geometry
+from .corners import corner_sum
+
+__all__ = ["keeps_centroids", "mesh_geometry", "cell_centroids_of", "whole_cell_centroids"]
+
+#: cells computed at a time (the chunk's corner coordinates and results stay small)
+_CHUNK = 1 << 16
+
+
+def keeps_centroids(mesh) -> bool:
+    """True when ``mesh`` keeps every cell's centroid (its cells are not pieces of split cells)."""
+    return getattr(mesh, "cell_parents", None) is None
+
+
+def mesh_geometry(mesh) -> tuple:
+    """Signed measures and centroids of every cell (read-only: shared by every step), the centroids
+    None where the mesh keeps none (:func:`keeps_centroids`; its whole cells' centroids are kept
+    instead, made in the same pass: :func:`whole_cell_centroids`)."""
+    X = mesh.coordinates
+    if keeps_centroids(mesh):
+        signed, cent = np.empty(mesh.n_cells), np.empty((mesh.n_cells, X.shape[1]))
+        for block, start in zip(mesh.blocks, mesh.block_offsets[:-1]):
+            sl = slice(int(start), int(start) + len(block))
+            cell_geometry(block.cell_type, X, block.connectivity, out=(signed[sl], cent[sl]))
+        cent.flags.writeable = False
+    else:
+        (signed, whole), cent = _split_geometry(mesh, X), None
+        mesh.memo(_WHOLE, lambda: whole)
+    signed.flags.writeable = False
+    return signed, cent
+
+
+#: memo key of a split mesh's whole-cell centroids
+_WHOLE = "whole_cell_centroids"
+
+
+def _split_geometry(mesh, X: np.ndarray) -> tuple:
+    """Signed measures of every cell of a split mesh and its whole cells' centroids (the pieces'
+    centroids weighted by their measures), the pieces' centroids made a chunk at a time and let go."""
+    parents = mesh.cell_parents
+    n_whole, dim = (int(parents.max()) + 1 if parents.size else 0), X.shape[1]
+    signed = np.empty(mesh.n_cells)
+    moment = np.zeros((n_whole, dim + 1))  # sums of measure x centroid, and of measure
+    scratch = np.empty((min(_CHUNK, mesh.n_cells), dim))
+    X = np.asfortranarray(X)  # each call of cell_geometry then takes the coordinate columns as they are
+    for block, start in zip(mesh.blocks, mesh.block_offsets[:-1]):
+        conn, start = block.connectivity, int(start)
+        for lo in range(0, len(block), _CHUNK):
+            part = conn[lo:lo + _CHUNK]
+            n = part.shape[0]
+            cells = slice(start + lo, start + lo + n)
+            cell_geometry(block.cell_type, X, part, out=(signed[cells], scratch[:n]))
+            weight, whole = np.abs(signed[cells]), parents[cells]  # the measures (of cell_measures)
+            first = int(whole.min())  # a reader's pieces come whole cell after whole cell: a short range
+            whole = whole - first
+            for d in range(dim + 1):
+                part_sum = np.bincount(whole, weights=weight * scratch[:n, d] if d < dim else weight)
+                moment[first:first + part_sum.size, d] += part_sum
+    total = moment[:, dim]
+    return signed, moment[:, :dim] / np.where(total > 0, total, 1.0)[:, None]
+
+
+def cell_centroids_of(mesh, cells=None) -> np.ndarray:
+    """Centroids of ``cells`` (indices or a mask; None: every cell), shape (k, dimension).
+
+    A mesh that keeps its centroids gives them from :attr:`Mesh.cell_centroids`; a split one
+    computes them from the cells' corners (the same numbers).
+    """
+    if keeps_centroids(mesh):
+        return mesh.cell_centroids if cells is None else mesh.cell_centroids[cells]
+    X = mesh.coordinates
+    offsets = mesh.block_offsets
+    if cells is None:
+        out = np.empty((mesh.n_cells, X.shape[1]))
+        for block, start in zip(mesh.blocks, offsets[:-1]):
+            _fill(block, X, slice(0, len(block)), out[int(start):int(start) + len(block)])
+        return out
+    cells = np.asarray(cells)
+    if cells.dtype == bool:
+        cells = np.flatnonzero(cells)
+    out = np.empty((cells.size, X.shape[1]))
+    if len(mesh.blocks) == 1:
+        _fill(mesh.blocks[0], X, cells, out)
+        return out
+    which = np.searchsorted(offsets, cells, side="right") - 1
+    for b, block in enumerate(mesh.blocks):
+        at = np.flatnonzero(which == b)
+        if at.size:
+            part = np.empty((at.size, X.shape[1]))
+            _fill(block, X, cells[at] - offsets[b], part)
+            out[at] = part
+    return out
+
+
+def _fill(block, X: np.ndarray, rows, out: np.ndarray) -> None:
+    """Centroids of the ``rows`` (indices, or a slice) of one block into ``out``, a chunk at a time.
+
+    Simplices: the corners' mean summed in corner order, as :func:`cell_geometry` computes it (the
+    same floats), each corner's coordinates gathered by a contiguous column of corner numbers; other
+    cells through :func:`cell_geometry`.
+    """
+    conn = block.connectivity
+    whole = isinstance(rows, slice)
+    n_rows = rows.stop - rows.start if whole else rows.size
+    simplex = block.cell_type in ("triangle", "tetra")
+    if not simplex:
+        X = np.asfortranarray(X)  # cell_geometry takes each coordinate column without a copy
+        signed = np.empty(min(_CHUNK, n_rows))
+    for lo in range(0, n_rows, _CHUNK):
+        hi = min(lo + _CHUNK, n_rows)
+        part = conn[rows.start + lo:rows.start + hi] if whole else conn[rows[lo:hi]]
+        if simplex:
+            corners = np.ascontiguousarray(part.T)
+            for i in range(X.shape[1]):
+                column = X[:, i]
+                out[lo:hi, i] = corner_sum(column[c] for c in corners) / corners.shape[0]
+        else:
+            cell_geometry(block.cell_type, X, part, out=(signed[:hi - lo], out[lo:hi]))
+
+
+def whole_cell_centroids(mesh) -> np.ndarray:
+    """Centroid of each whole cell (numbered by :attr:`Mesh.cell_parents`): its pieces' centroids
+    weighted by their measures, made with the mesh's geometry; for a mesh of unsplit cells,
+    :attr:`Mesh.cell_centroids`."""
+    if keeps_centroids(mesh):
+        return mesh.cell_centroids
+    mesh.signed_measures  # noqa: B018  (the geometry's pass keeps them with the mesh)
+    return mesh.memo(_WHOLE, lambda: _split_geometry(mesh, mesh.coordinates)[1])

@@ -1,0 +1,74 @@
+"""Droplet tracking on a mesh of split cells (polyhedra read as tetrahedra) searches the whole cells.
+
+The same histories as on the hexahedra the polyhedra are made of: a ball of whole cells that moves
+by whole cells with its velocity known (it never overlaps its earlier place), and a mesh that
+changes from the hexahedra to their split and back. The polyhedral file is written by VTK itself
+(pyvista) [lib]; where the balls are and when they move is set by the construction.
+"""
+
+import numpy as np
+import pytest
+
+pytest.importorskip("pyvista")
+
+from phasegauge.analysis.droplets import label_droplets  # noqa: E402
+from phasegauge.analysis.tracking import DropletTracker  # noqa: E402
+from phasegauge.io import Series  # noqa: E402
+from phasegauge.meshgen import grid_mesh, to_polyhedral_grid  # noqa: E402
+
+N = 12
+H = 1.0 / N
+
+
+@pytest.fixture(scope="module")
+def meshes(tmp_path_factory):
+    hexa = grid_mesh((2 * N, N, N), kind="hexahedron", bounds=[(0, 2), (0, 1), (0, 1)])
+    path = tmp_path_factory.mktemp("split") / "poly.vtu"
+    to_polyhedral_grid(hexa).save(str(path))
+    split = Series(str(path)).read(0).mesh
+    assert split.cell_parents is not None and split.n_cells == 24 * hexa.n_cells
+    return hexa, split
+
+
+def _ball(hexa, k, jump):
+    """Whole hexahedra within 2.5 cells of a centre that moves ``jump`` cells a step along x."""
+    centre = np.array([0.4 + jump * k * H, 0.5, 0.5])
+    return np.linalg.norm(hexa.cell_centroids - centre, axis=1) < 2.5 * H
+
+
+def _track(steps, *, gate):
+    tracker = DropletTracker(gate=gate)
+    for k, (mesh, inside, velocity) in enumerate(steps):
+        tracker.add(k, float(k), mesh, label_droplets(mesh, inside.astype(float), velocity=velocity))
+    return tracker.result()
+
+
+@pytest.mark.parametrize("on", ["hexahedra", "split"])
+def test_fast_ball_with_its_velocity_keeps_its_track(meshes, on):
+    """Eight cells a step (more than the ball's diameter): only the moved overlap links it."""
+    hexa, split = meshes
+    steps = []
+    for k in range(3):
+        inside = _ball(hexa, k, 8)
+        u = np.tile([8 * H, 0.0, 0.0], (hexa.n_cells, 1))
+        steps.append((hexa, inside, u) if on == "hexahedra" else (split, inside[split.cell_parents],
+                                                                   u[split.cell_parents]))
+    droplets, events = _track(steps, gate=0.0)
+    assert len(events) == 0 and droplets["track"].tolist() == [0, 0, 0]
+    # without the velocity (and no gate) it leaves and a new one appears
+    droplets, events = _track([(m, inside, None) for m, inside, _ in steps], gate=0.0)
+    assert events["kind"].tolist() == ["disappearance", "appearance"] * 2
+
+
+def test_mesh_changes_between_whole_and_split_cells(meshes):
+    """The ball on the hexahedra, then on their split (a different mesh: found through the whole
+    cells' centroids), then on the hexahedra again, moving one cell a step: one track, no event."""
+    hexa, split = meshes
+    steps = []
+    for k, mesh in enumerate([hexa, split, hexa]):
+        inside = _ball(hexa, k, 1)
+        steps.append((mesh, inside if mesh is hexa else inside[split.cell_parents], None))
+    droplets, events = _track(steps, gate=0.0)
+    assert len(events) == 0 and droplets["track"].tolist() == [0, 0, 0]
+    volumes = droplets["volume"].to_numpy()
+    np.testing.assert_allclose(volumes, volumes[0], rtol=1e-12)  # the same whole cells each step
