@@ -74,3 +74,20 @@ def test_whole_cell_centroids_are_pyvistas_cell_centres_of_parallelepipeds(tmp_p
     # a mesh of whole cells: its own centroids, the same array
     assert MeshOutline.of(hexa, centroids=True).cell_centroids is hexa.cell_centroids
     assert MeshOutline.of(hexa, centroids=True).cell_parents is None
+
+
+def test_overlap_probe_on_a_split_mesh_matches_the_same_tetrahedra_unsplit(tmp_path):
+    """The covered-boundary check of a split mesh (no centroids kept: the owners' made alone, the
+    search tree's made on the read) counts as on the same tetrahedra kept whole; an L-shaped
+    region, so that probes fall inside the box and the tree is searched. Outside check: a
+    conforming split has no boundary face inside another cell (elementary geometry: 0)."""
+    from phasegauge.model._overlaps import _covered_boundary_faces
+
+    full = grid_mesh((4, 4, 2), kind="hexahedron", jitter=0.15, seed=5)
+    centre = full.points[full.blocks[0].connectivity].mean(axis=1)
+    keep = ~((centre[:, 0] > 0.5) & (centre[:, 1] > 0.5))  # an L: a quarter of the box left out
+    mesh = _split(tmp_path, Mesh(full.points, [("hexahedron", full.blocks[0].connectivity[keep])]))
+    assert mesh._geometry[1] is None
+    whole = Mesh(mesh.points, [("tetra", mesh.blocks[0].connectivity)])
+    assert _covered_boundary_faces(mesh) == _covered_boundary_faces(whole) == 0
+    assert mesh._geometry[1] is None  # the tree's centroids were made on the read, not kept

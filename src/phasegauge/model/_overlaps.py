@@ -15,6 +15,7 @@ from __future__ import annotations
 
 import numpy as np
 
+from ._centroids import cell_centroids_of
 from ._grouping import group_columns, sort_small_rows
 
 __all__ = ["cell_overlaps", "overlap_problem"]
@@ -158,7 +159,6 @@ def _covered_boundary_faces(mesh, neighbours: int = 8) -> int:
         return 0
     d = mesh.dimension
     x = mesh.coordinates
-    centroids = mesh.cell_centroids
     width = d  # corners of a face: d (edge: 2, triangle: 3); 3D rows are padded with -1 in front
     face = x[corners[:, corners.shape[1] - width:]]
     # a point of the face off its middle (uneven weights), so that faces of a symmetric layout
@@ -166,7 +166,7 @@ def _covered_boundary_faces(mesh, neighbours: int = 8) -> int:
     weights = np.array([0.41, 0.59]) if width == 2 else np.array([0.23, 0.33, 0.44])
     middle = np.einsum("k,nkd->nd", weights, face)
     size = mesh.cell_sizes_of(owners)
-    away = middle - centroids[owners]
+    away = middle - cell_centroids_of(mesh, owners)  # a split mesh keeps no centroids: the owners' alone
     away /= np.maximum(np.linalg.norm(away, axis=1), 1e-300)[:, None]
     probe = middle + 1e-3 * size[:, None] * away
     # a probe beyond the box of all points lies in no cell (every cell lies in that box): on a
@@ -183,7 +183,7 @@ def _covered_boundary_faces(mesh, neighbours: int = 8) -> int:
     simplices = blocks[0] if len(blocks) == 1 else np.concatenate(blocks)  # one block: no copy
     k = min(neighbours, len(simplices))
     # sliding-midpoint tree: about a third of the balanced tree's build time on a million centroids
-    _, near = cKDTree(centroids, balanced_tree=False, compact_nodes=False).query(probe, k=k)
+    _, near = cKDTree(mesh.cell_centroids, balanced_tree=False, compact_nodes=False).query(probe, k=k)
     near = near.reshape(len(probe), k)
     inside = np.zeros(len(probe), dtype=bool)
     scale = np.maximum(size ** d, 1e-300)
