@@ -15,7 +15,7 @@ import phasegauge.analysis._hex_integrals as hex_module
 import phasegauge.analysis._interface_width as width_module
 import phasegauge.analysis._width_integrals as integrals_module
 from phasegauge.analysis._hex_integrals import coned_hexahedra
-from phasegauge.analysis._signed_distance import _ContourGeometry, _cell_pieces, _vertex_distances
+from phasegauge.analysis._signed_distance import _ContourGeometry, _vertex_distances, _whole_cell_pieces
 from phasegauge.analysis._width_integrals import _band_volume, _fraction_below, _fraction_of, _grid_tetrahedra
 from phasegauge.analysis.interface import (METRIC_KEYS, find_interface, interface_metrics,
                                            interface_profile_table)
@@ -137,8 +137,8 @@ def _reference(mesh, c_point, level=0.5):
     known = np.zeros(split.coordinates.shape[0], dtype=bool)
     known[S[weight > 0].ravel()] = True
     geometry = _ContourGeometry(contour)
-    if coned_hexahedra(mesh) is not None:  # searched against one plane per crossed cell there
-        geometry = _cell_pieces(geometry)
+    if coned_hexahedra(mesh) is not None or mesh.cell_parents is not None:
+        geometry = _whole_cell_pieces(mesh, geometry)  # searched against one plane per crossed (whole) cell there
     dist = _vertex_distances(split, known, geometry, mesh.plane_axes, level, max(10 * eps, 4 * h))[S]
     use = (weight > 0) & np.all(np.isfinite(dist), axis=1)
     m0 = weight[use].sum()

@@ -66,7 +66,7 @@ from ..model._grouping import index_dtype
 from ..model._split_tables import TABLE_DIAGONALS
 from ..model.simplices import _split_plan
 from ._sums import dot
-from ._signed_distance import _ContourGeometry, _cell_pieces, _signed_distance
+from ._signed_distance import _ContourGeometry, _signed_distance, _whole_cell_pieces
 from ._width_integrals import _SplitBand, _band_volume
 
 #: cells per chunk (the chunk's temporaries, about 150 arrays of this many floats, stay in cache)
@@ -403,7 +403,7 @@ class _HexBand:
 
     def distances(self, geometry: _ContourGeometry, level: float, bound: float) -> np.ndarray:
         """Signed distances at the mesh points the cells need (NaN elsewhere and beyond ``bound``)."""
-        geometry = _cell_pieces(geometry)
+        geometry = _whole_cell_pieces(self.mesh, geometry)
         need = self.cells.need
         dist = np.full(self.mesh.n_points, np.nan)
         if self.rest is not None:

@@ -27,7 +27,7 @@ from ..model._split_tables import TABLE
 from ..model.corners import corner_sum
 from ..model.mesh import Mesh
 from ..model.simplices import SimplexSplit, grid_corner_steps, split_cells
-from ._signed_distance import _ContourGeometry, _signed_distance, _vertex_distances
+from ._signed_distance import _ContourGeometry, _signed_distance, _vertex_distances, _whole_cell_pieces
 
 #: cells whose corners all lie within this of 0 or of 1 are left out of the width integrals
 _TAIL = 1e-6
@@ -234,7 +234,14 @@ class _SplitBand:
                     yield [rows[:, i][keep] for i in range(rows.shape[1])]
 
     def distances(self, geometry: _ContourGeometry, level: float, bound: float) -> np.ndarray:
-        """Signed distances at the known vertices (NaN elsewhere and beyond ``bound``)."""
+        """Signed distances at the known vertices (NaN elsewhere and beyond ``bound``).
+
+        On a mesh a reader split (polyhedra: ``mesh.cell_parents``) the search runs against one
+        element per crossed whole cell (:func:`._signed_distance._cell_pieces`); other meshes
+        search the contour's own elements.
+        """
+        if self.mesh.cell_parents is not None:
+            geometry = _whole_cell_pieces(self.mesh, geometry)
         return _vertex_distances(self.split, self.known, geometry, self.mesh.plane_axes, level, bound)
 
     def moments(self, dist: np.ndarray) -> tuple[float, float, float]:
