@@ -86,7 +86,10 @@ def test_cell_path_matches_the_full_split(monkeypatch, name, cells_across):
     # cell instead: tested against the analytic distance below), so that the integrals and the
     # moments are compared with the split's alone
     monkeypatch.setattr(hex_module, "_whole_cell_pieces", lambda mesh, geometry: geometry)
-    assert interface_metrics(mesh, c)["interface_width"] == pieces["interface_width"]
+    triangles = interface_metrics(mesh, c)
+    assert triangles["interface_width"] == pieces["interface_width"]  # the band volume reads no distance
+    # the second moment reads them: the pieces' planes within O(h^2 / R) of the triangles'
+    assert triangles["width_second_moment"] == pytest.approx(pieces["width_second_moment"], rel=0.02)
     # the cells no band edge crosses also over the 24 tetrahedra (the path takes their trilinear
     # map instead: tested against the split on affine cells and the analytic widths below)
     monkeypatch.setattr(hex_module, "_QUADRATURE", False)
@@ -145,6 +148,18 @@ def test_quadrature_on_affine_cells_matches_the_split():
             assert getattr(fast, name) == pytest.approx(getattr(slow, name), rel=RTOL, abs=1e-15), name
         dist = x[:, 0] - 0.4 * x[:, 1] + 0.2
         np.testing.assert_allclose(fast.moments(dist), slow.moments(slow.split.centre_means(dist)), rtol=RTOL)
+    # and against calculus on the sheared unit cube (volume det S): c = 0.3 + g.x inside the band
+    # everywhere, so int |grad c| = |g| det S, the band volume det S, and with c = a + b.xi over the
+    # unit cube (b = S^T g), int c (1 - c) = det S (m - m^2 - sum(b^2) / 12), m = a + sum(b) / 2
+    # (the mean and the variance of a uniform variable, 1/2 and 1/12)
+    low, high = corner_extremes(mesh, inside)
+    fast = _HexBand(mesh, inside, active, coned_hexahedra(mesh), low, high)
+    g, volume = np.array([0.2, 0.1, -0.15]), np.linalg.det(shear)
+    b = shear.T @ g
+    mean = 0.3 + b.sum() / 2
+    assert fast.total_gradient == pytest.approx(np.linalg.norm(g) * volume, rel=1e-12)
+    assert fast.band == pytest.approx(volume, rel=1e-12)
+    assert fast.mixed == pytest.approx(volume * (mean - mean ** 2 - (b ** 2).sum() / 12), rel=1e-12)
 
 
 @pytest.mark.parametrize("cells_across", [4, 8])

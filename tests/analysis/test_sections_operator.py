@@ -279,14 +279,16 @@ def test_median_is_numpy_median(n):
 
 @pytest.mark.parametrize("k", [3, 4])
 def test_section_corners_in_the_order_of_a_stable_argsort(k):
-    # the exchange network orders each simplex's corners as numpy's stable argsort does, ties
+    # the corner ranks place each simplex's corners as numpy's stable argsort orders them, ties
     # (shared offsets from the plane) kept in corner order, the nodes moving along
     rng = np.random.default_rng(k)
     s = rng.choice([-1.0, -0.5, 0.0, 0.25, 0.5], size=(3000, k))
     nodes = rng.integers(0, 10 ** 6, (3000, k))
     order = np.argsort(s, axis=1, kind="stable")
-    got = _section_planes._sorted_corners([s[:, j] for j in range(k)])
-    assert np.array_equal(got[0], np.take_along_axis(s, order, axis=1))
-    assert np.array_equal(got[1], order)  # the corner each came from: the stable argsort itself
-    assert np.array_equal(np.take_along_axis(nodes, got[1].astype(np.intp), axis=1),
+    columns = [s[:, j] for j in range(k)]
+    rank = _section_planes._corner_ranks(columns)
+    assert np.array_equal(_section_planes._placed(rank, columns), np.take_along_axis(s, order, axis=1))
+    slots = _section_planes._placed(rank, [np.full(s.shape[0], j) for j in range(k)])
+    assert np.array_equal(slots, order)  # the corner each came from: the stable argsort itself
+    assert np.array_equal(_section_planes._placed(rank, [nodes[:, j] for j in range(k)]),
                           np.take_along_axis(nodes, order, axis=1))

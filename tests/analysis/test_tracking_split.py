@@ -72,3 +72,19 @@ def test_mesh_changes_between_whole_and_split_cells(meshes):
     assert len(events) == 0 and droplets["track"].tolist() == [0, 0, 0]
     volumes = droplets["volume"].to_numpy()
     np.testing.assert_allclose(volumes, volumes[0], rtol=1e-12)  # the same whole cells each step
+
+
+def test_a_whole_cell_takes_the_droplet_of_its_heaviest_labelled_piece():
+    """The rule on its own (as `_whole_labels` states it): pieces of one whole cell in two droplets,
+    the piece with the largest c dV decides; on a tie the lowest piece number; a whole cell with no
+    labelled piece has none (-1). Taking the lightest piece instead would give 5 for the first."""
+    from types import SimpleNamespace
+
+    from phasegauge.analysis._tracking import _whole_labels
+
+    outline = SimpleNamespace(cell_centroids=np.zeros((3, 3)), cell_parents=np.array([0, 0, 0, 1, 1, 2, 2]))
+    step = {"cells": np.array([0, 1, 2, 3, 4]), "labels": np.array([5, 7, 7, 2, 9]),
+            "weights": np.array([0.2, 0.5, 0.3, 0.4, 0.4])}
+    assert _whole_labels(step, outline).tolist() == [7, 2, -1]
+    step["weights"] = np.array([0.6, 0.5, 0.3, 0.4, 0.4])
+    assert _whole_labels(step, outline).tolist() == [5, 2, -1]

@@ -5,6 +5,7 @@ from __future__ import annotations
 import numpy as np
 
 from ..errors import OptionError
+from ..model._centroids import cell_centroids_of
 from ..model._faces import kept_neighbours
 from ..model.fields import field_location, vector_values
 from ..model.mesh import Mesh
@@ -48,7 +49,7 @@ def _face_vectors(mesh: Mesh) -> tuple:
         normal = 0.5 * np.cross(P[:, 1] - P[:, 0], P[:, 2] - P[:, 0])
     measure = np.linalg.norm(normal, axis=1)
     centre = X[pieces].mean(axis=1)
-    outward = np.einsum("nd,nd->n", normal, centre - mesh.cell_centroids[owners])
+    outward = np.einsum("nd,nd->n", normal, centre - cell_centroids_of(mesh, owners))
     normal = normal * np.where(outward < 0, -1.0, 1.0)[:, None]
     with np.errstate(invalid="ignore", divide="ignore"):
         unit = normal / np.where(measure > 0, measure, 1.0)[:, None]

@@ -64,6 +64,7 @@ from ..model.cells import FACES
 from ..model.mesh import Mesh
 from ..model._grouping import index_dtype
 from ..model._split_tables import TABLE_DIAGONALS
+from ..model.corners import corner_sum
 from ..model.simplices import _split_plan
 from ._sums import dot
 from ._signed_distance import _ContourGeometry, _signed_distance, _whole_cell_pieces
@@ -170,9 +171,9 @@ class _HexCells:
                     cells = start + part
                     if _QUADRATURE:  # cells no band edge crosses: by the cell's trilinear map
                         low_part, high_part = low[cells], high[cells]
-                        smooth = ((low_part > _LOW) & (high_part < _HIGH)) | (high_part < _LOW) | (low_part > _HIGH)
+                        inside = (low_part > _LOW) & (high_part < _HIGH)
+                        smooth = inside | (high_part < _LOW) | (low_part > _HIGH)
                         if smooth.any():
-                            inside = (low_part > _LOW) & (high_part < _HIGH)
                             self._smooth(block.connectivity, part[smooth], clipped, columns, start, inside[smooth])
                             part = part[~smooth]
                             if part.size == 0:
@@ -295,11 +296,9 @@ class _HexCells:
         # and 4 dc/dxi_k: grad c = J^-T dc/dxi by Cramer's rule (the factors 4 cancel)
         j, b = [], []
         for high_face, low_face in _XI_FACES:
-            j.append([(((X[high_face[0]][d] + X[high_face[1]][d]) + X[high_face[2]][d]) + X[high_face[3]][d])
-                      - (((X[low_face[0]][d] + X[low_face[1]][d]) + X[low_face[2]][d]) + X[low_face[3]][d])
+            j.append([corner_sum(X[q][d] for q in high_face) - corner_sum(X[q][d] for q in low_face)
                       for d in range(3)])
-            b.append((((v[high_face[0]] + v[high_face[1]]) + v[high_face[2]]) + v[high_face[3]])
-                     - (((v[low_face[0]] + v[low_face[1]]) + v[low_face[2]]) + v[low_face[3]]))
+            b.append(corner_sum(v[q] for q in high_face) - corner_sum(v[q] for q in low_face))
         del X
 
         def cross(p, q):
@@ -315,9 +314,8 @@ class _HexCells:
         weights = np.zeros(part.size)
         ok = det > 0
         np.divide(np.sqrt(g2) * volume, det, out=weights, where=ok)
-        mean = (((((((v[0] + v[1]) + v[2]) + v[3]) + v[4]) + v[5]) + v[6]) + v[7]) / 8.0
-        squares = (((((((v[0] * v[0] + v[1] * v[1]) + v[2] * v[2]) + v[3] * v[3]) + v[4] * v[4]) + v[5] * v[5])
-                    + v[6] * v[6]) + v[7] * v[7]) / 8.0
+        mean = corner_sum(v) / 8.0
+        squares = corner_sum(x * x for x in v) / 8.0
         # int c (1 - c): the corners' mean of c^2 with weight 1/3, the centre's with 2/3 (exact for
         # c linear on a parallelepiped)
         self.mixed += float(dot(volume, mean - squares / 3.0 - (2.0 / 3.0) * mean * mean))
@@ -334,20 +332,16 @@ class _HexCells:
         rule where the integrals took it, else over their tetrahedra)."""
         m0 = m1 = m2 = 0.0
         for connectivity, part, weights in self.smooth_chunks:  # the same rule as int c (1 - c)
-            conn = connectivity[part]
-            d = [dist[conn[:, q]] for q in range(8)]
-            dm = (((((((d[0] + d[1]) + d[2]) + d[3]) + d[4]) + d[5]) + d[6]) + d[7]) / 8.0
+            d, dm = _corner_distances(dist, connectivity[part])
             ok = np.isfinite(dm)
-            squares = (((((((d[0] * d[0] + d[1] * d[1]) + d[2] * d[2]) + d[3] * d[3]) + d[4] * d[4])
-                         + d[5] * d[5]) + d[6] * d[6]) + d[7] * d[7]) / 8.0
+            squares = corner_sum(x * x for x in d) / 8.0
             w = weights[ok]
             m0 += _SIX * float(w.sum())
             m1 += 4.0 * _SIX * dot(w, dm[ok])
             m2 += 20.0 * _SIX * dot(w, squares[ok] / 3.0 + (2.0 / 3.0) * dm[ok] * dm[ok])
         for tets, connectivity, part, weights in self.chunks:
-            conn = connectivity[part]  # the chunk's corners gathered again: 8 bytes a cell kept, not 64
-            d = [dist[conn[:, q]] for q in range(8)]
-            dm = (((((((d[0] + d[1]) + d[2]) + d[3]) + d[4]) + d[5]) + d[6]) + d[7]) / 8.0
+            # the chunk's corners gathered again: 8 bytes a cell kept, not 64
+            d, dm = _corner_distances(dist, connectivity[part])
             ok = np.isfinite(dm)
             if not ok.all():
                 if not ok.any():
@@ -426,3 +420,9 @@ class _HexBand:
         if self.rest is not None:
             known = known | self.rest.known[:self.mesh.n_points]
         return self.values, dist, known
+
+
+def _corner_distances(dist: np.ndarray, conn: np.ndarray) -> tuple:
+    """The eight corners' distances of each row of ``conn`` (a list of 8 arrays) and their mean."""
+    d = [dist[conn[:, q]] for q in range(8)]
+    return d, corner_sum(d) / 8.0

@@ -334,8 +334,9 @@ def interface_metrics(mesh: Mesh, indicator, *, level: float = 0.5, contour: Con
     integrated cell by cell: over the split's own 24 tetrahedra where a band
     edge crosses the cell, by a quadrature of the cell's trilinear map
     elsewhere (exact on parallelepipeds, within O(h^2) of the split
-    otherwise), and their distances are searched against one plane per
-    crossed cell (within O(h^2 / R) of the contour's triangles); the
+    otherwise), and the distances of such a mesh are searched against one
+    plane per crossed cell, every cell's (the wedges and pyramids beside the
+    hexahedra too; within O(h^2 / R) of the contour's triangles); the
     6-tetrahedra table is taken only where
     every face is flat (its corners spanning a volume below 1e-10 of its
     diagonal cubed) and cut alike from both

@@ -232,9 +232,10 @@ def _unwrap(mesh: Mesh, near: _NearCells, member: np.ndarray, root: np.ndarray, 
     shift = np.zeros((near.k, mesh.dimension))
     for j, ax in enumerate(axes):
         shift[core_local, ax] = offset[piece[core_local], j]
-    band_member = member[~near.core[member]]
+    in_band = ~near.core[member]
+    band_member = member[in_band]
     source = root[band_member]
-    at_source, at_band = cell_centroids_of(mesh, cells[source]), cell_centroids_of(mesh, cells[band_member])
+    at_source, at_band = cell_centroids_of(mesh, cells[source]), X[in_band]
     for ax, (_, _, period) in zip(axes, links):
         ref = at_source[:, ax] + shift[source, ax]
         shift[band_member, ax] = period * np.round((ref - at_band[:, ax]) / period)

@@ -6,6 +6,7 @@ from typing import NamedTuple
 
 import numpy as np
 
+from ..model._centroids import cell_centroids_of
 from ..model.contour import Contour
 from ..model.simplices import SimplexSplit
 
@@ -157,12 +158,12 @@ def _maybe_near_cells(mesh, cells: np.ndarray, centres: np.ndarray, reach: float
     """
     grid = _centroid_buckets(mesh)
     if centres.shape[0] == 0 or cells.size == 0 or not grid.side <= 0.5 * reach:
-        return _maybe_near(mesh.cell_centroids[cells], centres, reach)
+        return _maybe_near(cell_centroids_of(mesh, cells), centres, reach)
     limit = reach / grid.side + np.sqrt(centres.shape[1]) + 1e-9  # in buckets
     close = _close_buckets(_bucket_of(centres, grid.lo, grid.side, grid.shape), grid.shape, limit)
     near = np.zeros(cells.size, dtype=bool)
     kept = np.flatnonzero(close.ravel()[grid.flat[cells]])
-    near[kept] = _any_within(mesh.cell_centroids[cells[kept]], centres, reach)
+    near[kept] = _any_within(cell_centroids_of(mesh, cells[kept]), centres, reach)
     return near
 
 
@@ -205,7 +206,8 @@ def _cell_pieces(geometry: _ContourGeometry, *, cells: np.ndarray | None = None,
     O(h / R) within a cell); other cells (the level crossing one twice, a fold) keep their own
     elements. The plane of a piece is within O(h^2 / R) of its elements' own, so the distances
     move at that order; the search tree is several times smaller (about 14 triangles per cell on
-    the 24-tetrahedra split of a hexahedron).
+    the 24-tetrahedra split of a hexahedron). The merge covers every cell of the contour: on a
+    mesh with coned hexahedra the pieces in its wedges, pyramids and tetrahedra merge too.
 
     Measured against the analytic distance |r - R| to a sphere (with the least half-size of
     :func:`_whole_cell_pieces`), at the points the widths searched: on jittered hexahedra

@@ -39,7 +39,7 @@ from ..errors import OptionError
 from ..model.axes import AXIS_NAMES
 from ..model.mesh import Mesh
 from ..model.outline import MeshOutline
-from ._labelling import DropletLabels, _normalize_periodic
+from ._labelling import DropletLabels, _at_cells, _normalize_periodic
 
 __all__ = ["DropletTracker", "track_droplets", "EVENT_COLUMNS", "EVENT_KINDS"]
 
@@ -254,7 +254,7 @@ class DropletTracker:
         same_mesh = mesh_p is mesh_c or (mesh_p.n_cells == mesh_c.n_cells
                                          and mesh_p.signature == mesh_c.signature)
         if same_mesh and not moved:
-            landed = _labels_at(cur, prev["cells"])
+            landed = _at_cells(cur["cells"], cur["labels"], prev["cells"])
         else:
             parents = mesh_p.cell_parents
             points = mesh_p.cell_centroids[prev["cells"] if parents is None else parents[prev["cells"]]]
@@ -263,7 +263,7 @@ class DropletTracker:
                 period = hi[ax] - lo[ax]
                 points[:, ax] = lo[ax] + np.mod(points[:, ax] - lo[ax], period)
             found = self._locate(mesh_c, points)
-            landed = _labels_at(cur, found) if mesh_c.cell_parents is None else _whole_labels(cur, mesh_c)[found]
+            landed = _at_cells(cur["cells"], cur["labels"], found) if mesh_c.cell_parents is None else _whole_labels(cur, mesh_c)[found]
         hit = landed >= 0
         overlap = sparse.coo_matrix((prev["weights"][hit], (prev["labels"][hit], landed[hit])),
                                     shape=(n_prev, n_cur)).tocsr()
@@ -375,16 +375,6 @@ class DropletTracker:
         events = events[list(EVENT_COLUMNS)].reset_index(drop=True)
         events["step"] = events["step"].astype(droplets["step"].dtype if len(droplets) else np.int64)
         return droplets, events
-
-
-def _labels_at(step: dict, cells: np.ndarray) -> np.ndarray:
-    """Droplet of each of ``cells`` in ``step`` (-1: none), from its sorted labelled cells (no array
-    over every cell)."""
-    labelled = step["cells"]
-    if not labelled.size:
-        return np.full(len(cells), -1, dtype=np.int64)
-    at = np.minimum(np.searchsorted(labelled, cells), labelled.size - 1)
-    return np.where(labelled[at] == cells, step["labels"][at], -1)
 
 
 def _whole_labels(step: dict, outline: MeshOutline) -> np.ndarray:
