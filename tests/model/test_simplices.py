@@ -211,3 +211,20 @@ def test_table_cells_take_the_few_simplex_tables():
     assert centred.simplices.shape[0] == 4 * quads.n_cells and centred.n_vertices == quads.n_points + quads.n_cells
     with pytest.raises(ValueError, match="quads must be"):
         split_cells(quads, quads="fan")
+
+
+def test_values_at_some_vertices_equal_the_whole_table_rows():
+    # at_vertices and corner_values gather the added centres' values for the ids asked only; they
+    # are the rows of the table of every vertex, whose centres are their corners' means (numpy's
+    # mean of the corner rows, to round-off)
+    mesh = grid_mesh((5, 4, 3), kind="hexahedron", jitter=0.25, seed=7)
+    split = split_cells(mesh, np.arange(0, mesh.n_cells, 2), values=mesh.coordinates[:, 0] ** 2)
+    assert split.centres  # jittered hexahedra are coned about added centres
+    ids = np.random.default_rng(1).integers(0, split.n_vertices, (40, 3))
+    for values in (split.point_values, split.points):
+        table = split.centre_means(values)
+        assert np.array_equal(split.at_vertices(values, ids), table[ids])
+        assert np.array_equal(split.at_vertices(values, ids, split.added_values(values)), table[ids])
+        assert np.array_equal(split.corner_values(values), table[split.simplices])
+    for ids_c, corners in split.centres:
+        np.testing.assert_allclose(split.coordinates[ids_c], mesh.coordinates[corners].mean(axis=1), rtol=1e-14)

@@ -77,7 +77,7 @@ def _march_simplices(split: SimplexSplit, level: float, dim: int):
     """
     S = split.simplices
     k = dim + 1
-    v = split.values[S]
+    v = split.corner_values(split.point_values)  # no table of every vertex: the cut simplices' alone
     pattern = np.zeros(S.shape[0], dtype=np.int8)  # bit j: corner j above the level
     count = np.zeros(S.shape[0], dtype=np.int8)
     for j in range(k):  # column by column: no (n, k) temporaries of counts
@@ -91,26 +91,26 @@ def _march_simplices(split: SimplexSplit, level: float, dim: int):
     lone_below = count == (2 if dim == 2 else 3)
     order = _lone_first(k)[np.where(lone_below, (1 << k) - 1 - pattern, pattern)]
     P = S.ravel()[(rows * k)[:, None] + order]
-    X = split.coordinates
+    X = split.at_vertices(split.points, P)  # (m, k, dim): the cut simplices' corners, in P's order
     edges_list, elem_owner = [], []
     if dim == 2:
         e = np.stack([P[:, [0, 1]], P[:, [0, 2]]], axis=1)  # (k, 2 vertices, 2 ends)
-        up = X[P[:, 0]] - 0.5 * (X[P[:, 1]] + X[P[:, 2]])
+        up = X[:, 0] - 0.5 * (X[:, 1] + X[:, 2])
         up[lone_below] *= -1
         edges_list.append((e, up))
         elem_owner.append(owner)
     else:
         single = count != 2
-        Ps = P[single]
+        Ps, Xs = P[single], X[single]
         e = np.stack([Ps[:, [0, 1]], Ps[:, [0, 2]], Ps[:, [0, 3]]], axis=1)
-        up = X[Ps[:, 0]] - ((X[Ps[:, 1]] + X[Ps[:, 2]]) + X[Ps[:, 3]]) / 3.0  # the mean of the other three
+        up = Xs[:, 0] - ((Xs[:, 1] + Xs[:, 2]) + Xs[:, 3]) / 3.0  # the mean of the other three
         up[lone_below[single]] *= -1
         edges_list.append((e, up))
         elem_owner.append(owner[single])
-        Pd = P[~single]  # a, b above; c, d below
+        Pd, Xd = P[~single], X[~single]  # a, b above; c, d below
         a, b, c, d = Pd[:, 0], Pd[:, 1], Pd[:, 2], Pd[:, 3]
         ac, ad, bd, bc = (np.stack(p, axis=1) for p in ((a, c), (a, d), (b, d), (b, c)))
-        up = 0.5 * (X[a] + X[b]) - 0.5 * (X[c] + X[d])
+        up = 0.5 * (Xd[:, 0] + Xd[:, 1]) - 0.5 * (Xd[:, 2] + Xd[:, 3])
         od = owner[~single]
         edges_list.append((np.stack([ac, ad, bd], axis=1), up))
         edges_list.append((np.stack([ac, bd, bc], axis=1), up))
@@ -142,10 +142,14 @@ def _find_on_simplices(mesh: Mesh, c: np.ndarray, level: float, extremes: Corner
     unique = key[distinct]
     inverse = np.empty(key.size, dtype=np.int64)
     inverse[order] = np.cumsum(distinct) - 1
-    X, v = split.coordinates, split.values
     p, q = unique // n_vertices, unique % n_vertices
-    t = (level - v[p]) / (v[q] - v[p])
-    pts = X[p] + t[:, None] * (X[q] - X[p])
+    # the edge ends' coordinates and values, the added centres' formed for the centres only
+    x_added = split.added_values(split.points) if split.centres else None
+    v_added = split.added_values(split.point_values) if split.centres else None
+    vp, vq = split.at_vertices(split.point_values, p, v_added), split.at_vertices(split.point_values, q, v_added)
+    Xp = split.at_vertices(split.points, p, x_added)
+    t = (level - vp) / (vq - vp)
+    pts = Xp + t[:, None] * (split.at_vertices(split.points, q, x_added) - Xp)
     elements = inverse.reshape(E.shape[0], dim)
     # orientation: 2D phase on the left; 3D normals towards lower c
     P = pts[elements]

@@ -263,14 +263,27 @@ class SimplexSplit:
 
         The centres' values are formed for the centres only (no copy of ``point_values``).
         """
-        S = self.simplices
+        return self.at_vertices(point_values, self.simplices)
+
+    def added_values(self, point_values: np.ndarray) -> np.ndarray:
+        """Values at the added centres only, shape (n_vertices - n_points,) + ``point_values.shape[1:]``:
+        their corners' means (the rows :meth:`centre_means` appends)."""
+        return np.concatenate([corner_mean(point_values, corners) for _, corners in self.centres])
+
+    def at_vertices(self, point_values: np.ndarray, ids: np.ndarray, added: np.ndarray | None = None) -> np.ndarray:
+        """``centre_means(point_values)[ids]`` without the table of every vertex: the same numbers.
+
+        ``ids`` (any shape) are vertex ids; ``added`` the centres' values if formed already
+        (:meth:`added_values`). The result has shape ``ids.shape + point_values.shape[1:]``.
+        """
         if not self.centres:
-            return point_values[S]
-        added = np.concatenate([corner_mean(point_values, corners) for _, corners in self.centres])
+            return point_values[ids]
+        if added is None:
+            added = self.added_values(point_values)
         n = self.n_points
-        extra = S >= n
-        out = point_values[np.where(extra, 0, S)]
-        out[extra] = added[S[extra] - n]
+        extra = ids >= n
+        out = point_values[np.where(extra, 0, ids)]
+        out[extra] = added[ids[extra] - n]
         return out
 
     @property
