@@ -46,8 +46,17 @@ def _near_band_pairs(neighbours: np.ndarray, band_local: np.ndarray) -> np.ndarr
     """Face pairs (local numbers) of the near cells with at least one band cell, from their local
     neighbour rows: the pairs of ``mesh.face_pairs`` between near cells, in the same (sorted) order."""
     k, width = neighbours.shape
-    rows = np.repeat(np.arange(k, dtype=neighbours.dtype), width)  # the local numbers' type (int32)
-    cols = neighbours.ravel()
+    # only the band cells' rows and their neighbours' hold such pairs (face neighbours are mutual):
+    # those rows are read, in order, rather than all k
+    band_rows = np.flatnonzero(band_local)
+    reached = np.take(neighbours, band_rows, axis=0).ravel()
+    candidate = np.zeros(k + 1, dtype=bool)  # slot k: "no cell"
+    candidate[reached] = True
+    candidate[band_rows] = True
+    rows = np.flatnonzero(candidate[:k]).astype(neighbours.dtype)  # the local numbers' type (int32)
+    del reached, candidate, band_rows
+    cols = np.take(neighbours, rows, axis=0).ravel()
+    rows = np.repeat(rows, width)
     keep = cols < k
     rows, cols = rows[keep], cols[keep]
     keep = (rows < cols) & (band_local[rows] | band_local[cols])
