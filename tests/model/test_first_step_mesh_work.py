@@ -18,13 +18,16 @@ def _mesh(kind, dim):
 
 @pytest.mark.parametrize("kind,dim", [(k, 2) for k in KINDS_2D] + [(k, 3) for k in KINDS_3D])
 @pytest.mark.parametrize("columns", [None, 2])
-def test_point_to_cell_matches_incidence_product(kind, dim, columns):
+@pytest.mark.parametrize("all_finite", [False, True])
+def test_point_to_cell_matches_incidence_product(kind, dim, columns, all_finite):
     # reference: the corner mean as the sparse product incidence @ values (scipy.sparse),
-    # bit for bit (corners added in connectivity order from zero in both)
+    # bit for bit (corners added in connectivity order from zero in both); every value finite:
+    # the counts are each block's corner count, not gathered
     m = _mesh(kind, dim)
     rng = np.random.default_rng(1)
     v = rng.normal(size=(m.n_points,) if columns is None else (m.n_points, columns))
-    v[::5] = np.nan
+    if not all_finite:
+        v[::5] = np.nan
     v[1::7] = -0.0
     flat = v.reshape(m.n_points, -1)
     finite = np.isfinite(flat)

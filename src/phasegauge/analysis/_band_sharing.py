@@ -11,7 +11,7 @@ import numpy as np
 from scipy import sparse
 from scipy.sparse import csgraph
 
-from ..model._centroids import cell_centroids_of
+from ..model._centroids import cell_centroids_of, keeps_centroids
 from ..model._grouping import index_dtype
 from ..model.mesh import Mesh
 
@@ -22,16 +22,17 @@ __all__ = ["share_band", "finish_far_band"]
 _PAIR_CHUNK = 1 << 16
 
 
-def _face_lengths(mesh: Mesh, pairs: np.ndarray, cells: np.ndarray | None = None) -> np.ndarray:
-    """Centroid distance across each face pair, chunk by chunk (each row's norm is the same number).
-
-    ``pairs`` in mesh numbers, or in the local numbers of ``cells``.
-    """
-    out = np.empty(pairs.shape[0])
-    for lo in range(0, pairs.shape[0], _PAIR_CHUNK):  # a split mesh's centroids made for the chunk's cells
-        part = pairs[lo:lo + _PAIR_CHUNK] if cells is None else cells[pairs[lo:lo + _PAIR_CHUNK]]
-        out[lo:lo + part.shape[0]] = np.linalg.norm(cell_centroids_of(mesh, part[:, 0])
-                                                    - cell_centroids_of(mesh, part[:, 1]), axis=1)
+def _face_lengths(mesh: Mesh, local: np.ndarray, nodes: np.ndarray) -> np.ndarray:
+    """Centroid distance across each face pair, the pairs ``local`` in numbers 0.. of the mesh cells
+    ``nodes``: each node's centroid made once (a split mesh keeps none), the pairs measured chunk by
+    chunk (each row's norm is the same number as from the two centroids made apart)."""
+    kept = keeps_centroids(mesh)  # then read from the mesh's own: no (nodes, 3) copy
+    X = mesh.cell_centroids if kept else cell_centroids_of(mesh, nodes)
+    out = np.empty(local.shape[0])
+    for lo in range(0, local.shape[0], _PAIR_CHUNK):  # the (n, 3) temporaries of a chunk
+        part = nodes[local[lo:lo + _PAIR_CHUNK]] if kept else local[lo:lo + _PAIR_CHUNK]
+        out[lo:lo + part.shape[0]] = np.linalg.norm(np.take(X, part[:, 0], axis=0)
+                                                    - np.take(X, part[:, 1], axis=0), axis=1)
     return out
 
 
@@ -45,8 +46,17 @@ def _near_band_pairs(neighbours: np.ndarray, band_local: np.ndarray) -> np.ndarr
     """Face pairs (local numbers) of the near cells with at least one band cell, from their local
     neighbour rows: the pairs of ``mesh.face_pairs`` between near cells, in the same (sorted) order."""
     k, width = neighbours.shape
-    rows = np.repeat(np.arange(k, dtype=neighbours.dtype), width)  # the local numbers' type (int32)
-    cols = neighbours.ravel()
+    # only the band cells' rows and their neighbours' hold such pairs (face neighbours are mutual):
+    # those rows are read, in order, rather than all k
+    band_rows = np.flatnonzero(band_local)
+    reached = np.take(neighbours, band_rows, axis=0).ravel()
+    candidate = np.zeros(k + 1, dtype=bool)  # slot k: "no cell"
+    candidate[reached] = True
+    candidate[band_rows] = True
+    rows = np.flatnonzero(candidate[:k]).astype(neighbours.dtype)  # the local numbers' type (int32)
+    del reached, candidate, band_rows
+    cols = np.take(neighbours, rows, axis=0).ravel()
+    rows = np.repeat(rows, width)
     keep = cols < k
     rows, cols = rows[keep], cols[keep]
     keep = (rows < cols) & (band_local[rows] | band_local[cols])
@@ -207,7 +217,14 @@ def _finish_band_by_distance(mesh, pairs, shared, source_cell, extra_pairs, cell
 
     ``pairs``, ``shared`` and ``source_cell`` in mesh numbers, or in the local numbers of ``cells``.
     """
-    length = _face_lengths(mesh, pairs, cells)
+    used = np.zeros(mesh.n_cells if cells is None else cells.size, dtype=bool)
+    used[pairs.ravel()] = True
+    nodes = np.flatnonzero(used)
+    number = np.cumsum(used, dtype=index_dtype(used.size + 1))  # int32 where it fits: (n, 2) below
+    number -= 1
+    local = number[pairs]
+    del number, used
+    length = _face_lengths(mesh, local, nodes if cells is None else cells[nodes])
     if extra_pairs.size:  # across a periodic boundary the centroid distance is meaningless: use h
         on_mesh = pairs if cells is None else cells[pairs]
         key = np.sort(on_mesh, axis=1) @ np.array([mesh.n_cells, 1])
@@ -215,13 +232,6 @@ def _finish_band_by_distance(mesh, pairs, shared, source_cell, extra_pairs, cell
         length[across] = 0.5 * (mesh.cell_sizes_of(on_mesh[across, 0]) + mesh.cell_sizes_of(on_mesh[across, 1]))
         del on_mesh
     np.maximum(length, 1e-300, out=length)
-    used = np.zeros(mesh.n_cells if cells is None else cells.size, dtype=bool)
-    used[pairs.ravel()] = True
-    nodes = np.flatnonzero(used)
-    number = np.cumsum(used, dtype=index_dtype(used.size + 1))  # int32 where it fits: (n, 2) below
-    number -= 1
-    local = number[pairs]
-    del number
     graph = sparse.coo_matrix((length, (local[:, 0], local[:, 1])), shape=(nodes.size, nodes.size)).tocsr()
     del length, local  # the graph holds them
     sources = np.flatnonzero(shared[nodes] >= 0)

@@ -179,8 +179,9 @@ def read_polyhedral(path: str):
     point_data = {name: np.asarray(grid.point_data[name]) for name in grid.point_data.keys()}
     cell_data = {name: np.asarray(grid.cell_data[name]) for name in grid.cell_data.keys()}
     field_data = {name: np.asarray(grid.field_data[name]) for name in grid.field_data.keys()}
-    # what the streams are made from: equal arrays split alike
-    made_from = (types, conn, offs) + face_arrays
+    # what the streams are made from: equal arrays split alike (the polyhedra's own rows of the cell
+    # arrays list their points only, which the split does not read: not hashed when all cells are)
+    made_from = (types,) + ((conn, offs) if not np.all(types == VTK_POLYHEDRON) else ()) + face_arrays
     return PolyhedralRead(path, points, blocks, rows_of, streams, made_from, point_data, cell_data, field_data,
                           int(np.count_nonzero(types == VTK_POLYHEDRON)))
 

@@ -112,8 +112,10 @@ def corner_extremes(mesh: Mesh, values: np.ndarray, cells: np.ndarray | None = N
             part = conn[lo:lo + _CHUNK]
             rows = slice(first + lo, first + lo + part.shape[0])
             least, most = low[rows], high[rows]
-            np.minimum(values[part[:, 0]], values[part[:, 1]], out=least)
-            np.maximum(values[part[:, 0]], values[part[:, 1]], out=most)
+            first_corner, second = values[part[:, 0]], values[part[:, 1]]  # each gathered once
+            np.minimum(first_corner, second, out=least)
+            np.maximum(first_corner, second, out=most)
+            del first_corner, second
             for j in range(2, part.shape[1]):
                 corner = values[part[:, j]]
                 np.minimum(least, corner, out=least)
