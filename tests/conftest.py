@@ -56,3 +56,29 @@ def write_listing(folder, steps) -> str:
     with open(listing, "w") as handle:
         handle.write("\n".join(lines) + "\n")
     return listing
+
+
+def check_sphere_widths(r, measured, coordinates, c, *, radius, h, cells_across, eps, rms, largest):
+    """The width estimators' distances and widths of a logistic drop of ``radius`` about (0.5, 0.5, 0.5).
+
+    Outside checks (Olsson & Kreiss 2005; REFERENCES.md [calc]): the distance to the interface is
+    |r - R|; the band volume per area over 0.05 < c < 0.95 is w (1 + w^2 / (12 R^2)); dc/dn is a
+    logistic density of variance pi^2 eps^2 / 3. ``r`` and ``measured`` are
+    ``interface_metrics(mesh, c, return_distances=True)``; the distance errors, in cells ``h``,
+    must stay under ``rms`` (root mean square) and ``largest``.
+    """
+    import numpy as np
+    import pytest
+
+    width = cells_across * h
+    r_point = np.linalg.norm(coordinates - 0.5, axis=1)
+    found = np.isfinite(measured.point)
+    assert found.sum() > 0.5 * ((c > 0.01) & (c < 0.99)).sum()
+    error = (measured.point[found] - (radius - r_point[found])) / h
+    assert np.sqrt(np.mean(error ** 2)) < rms and np.abs(error).max() < largest
+    curved = width ** 2 / (12 * radius ** 2)
+    high = (0.08 if cells_across == 4 else 0.03) + curved
+    assert r["interface_width"] / width - 1 == pytest.approx(curved, abs=0.07 if cells_across == 4 else 0.03)
+    for key in ("interface_width", "width_threshold_free", "width_second_moment", "width_profile_median"):
+        assert -0.02 < r[key] / width - 1 < high, key
+    assert 0.96 < r["interface_variance"] / (np.pi ** 2 * eps ** 2 / 3) < (1 + high) ** 2

@@ -18,6 +18,8 @@ from phasegauge.analysis._width_integrals import _SplitBand
 from phasegauge.analysis.interface import METRIC_KEYS, interface_metrics, interface_profile_table
 from phasegauge.meshgen import grid_mesh
 from phasegauge.model.corners import corner_extremes
+
+from conftest import check_sphere_widths
 from phasegauge.model.mesh import Mesh
 
 RTOL = 1e-12
@@ -202,14 +204,5 @@ def test_sphere_on_jittered_hexahedra_distances_and_widths(cells_across, n):
     r_point = np.linalg.norm(mesh.coordinates - 0.5, axis=1)
     c = 0.5 * (1 + np.tanh((radius - r_point) / (2 * eps)))
     r, measured = interface_metrics(mesh, c, return_distances=True)
-    found = np.isfinite(measured.point)
-    assert found.sum() > 0.5 * ((c > 0.01) & (c < 0.99)).sum()
-    error = (measured.point[found] - (radius - r_point[found])) / h
-    assert np.sqrt(np.mean(error ** 2)) < 0.04 and np.abs(error).max() < 0.25
-    curved = width ** 2 / (12 * radius ** 2)
-    high = (0.08 if cells_across == 4 else 0.03) + curved
-    assert r["interface_width"] / width - 1 == pytest.approx(curved, abs=0.07 if cells_across == 4 else 0.03)
-    for key in ("interface_width", "width_threshold_free", "width_second_moment", "width_profile_median"):
-        assert -0.02 < r[key] / width - 1 < high, key
-    # dc/dn is a logistic density of variance pi^2 eps^2 / 3 (REFERENCES.md [calc])
-    assert 0.96 < r["interface_variance"] / (np.pi ** 2 * eps ** 2 / 3) < (1 + high) ** 2
+    check_sphere_widths(r, measured, mesh.coordinates, c, radius=radius, h=h, cells_across=cells_across, eps=eps,
+                        rms=0.04, largest=0.25)

@@ -17,6 +17,8 @@ from phasegauge.analysis.interface import find_interface, interface_metrics  # n
 from phasegauge.io import Series  # noqa: E402
 from phasegauge.meshgen import grid_mesh, to_polyhedral_grid  # noqa: E402
 
+from conftest import check_sphere_widths  # noqa: E402
+
 RADIUS = 0.3
 
 
@@ -51,15 +53,6 @@ def test_sphere_on_polyhedra_distances_and_widths(tmp_path, cells_across, n):
     assert crossed <= pieces.centroids.shape[0] < 1.05 * crossed < 0.2 * contour.n_elements
     assert pieces.size == pytest.approx(contour.size, rel=1e-12)
     r, measured = interface_metrics(mesh, c, return_distances=True)
-    r_point = np.linalg.norm(mesh.coordinates - 0.5, axis=1)
-    found = np.isfinite(measured.point)
-    assert found.sum() > 0.5 * ((c > 0.01) & (c < 0.99)).sum()
-    error = (measured.point[found] - (RADIUS - r_point[found])) / h
-    assert np.sqrt(np.mean(error ** 2)) < 0.02 and np.abs(error).max() < 0.12
     # widths: the same tolerances as the jittered hexahedra's (tests/analysis/test_hex_integrals.py)
-    curved = width ** 2 / (12 * RADIUS ** 2)
-    high = (0.08 if cells_across == 4 else 0.03) + curved
-    assert r["interface_width"] / width - 1 == pytest.approx(curved, abs=0.07 if cells_across == 4 else 0.03)
-    for key in ("interface_width", "width_threshold_free", "width_second_moment", "width_profile_median"):
-        assert -0.02 < r[key] / width - 1 < high, key
-    assert 0.96 < r["interface_variance"] / (np.pi ** 2 * eps ** 2 / 3) < (1 + high) ** 2
+    check_sphere_widths(r, measured, mesh.coordinates, c, radius=RADIUS, h=h, cells_across=cells_across, eps=eps,
+                        rms=0.02, largest=0.12)
