@@ -291,3 +291,28 @@ def test_interface_distance_refuses_an_axis_the_mesh_does_not_span():
     c_point = (mesh.coordinates[:, 0] > 0.5).astype(float)
     with pytest.raises(OptionError, match="periodic axis 'z' is not an axis"):
         interface_distance(mesh, mesh.point_to_cell(c_point), find_interface(mesh, c_point), periodic=("z",))
+
+
+@pytest.mark.parametrize("reach", [0.08, 0.3])
+def test_interface_distance_wraps_a_periodic_axis_of_a_mesh_in_the_y_z_plane(reach):
+    # the case above turned into the y-z plane (x = 0 everywhere), periodic along z: the mesh's
+    # analysis columns are (y, z), so the wrap must read the z column by its place among them,
+    # not by z's place in x, y, z [analytic: the same four interfaces, now at z = -0.45 ... 1.05]
+    from phasegauge.analysis.interface import find_interface
+    from phasegauge.analysis.thermo import interface_distance
+    from phasegauge.model.mesh import Mesh
+
+    flat = grid_mesh((8, 80), bounds=[(0.0, 0.1), (0.0, 1.0)], kind="quad")
+    points = np.column_stack([np.zeros(flat.n_points), flat.points[:, 0], flat.points[:, 1]])
+    mesh = Mesh(points, [("quad", flat.blocks[0].connectivity)])
+    assert tuple(mesh.plane_axes[:2]) == (1, 2)
+    z = mesh.coordinates[:, 1]
+    c_point = 0.5 + 0.5 * np.cos(2 * np.pi * (z - 0.3))
+    c_cell = mesh.point_to_cell(c_point)
+    contour = find_interface(mesh, c_point)
+    z_cell = mesh.cell_centroids[:, 1]
+    exact = np.min(np.abs(z_cell[:, None] - np.array([-0.45, 0.05, 0.55, 1.05])[None, :]), axis=1)
+    wrapped = interface_distance(mesh, c_cell, contour, reach=reach, periodic=("z",))
+    near = exact <= reach
+    np.testing.assert_allclose(np.abs(wrapped[near]), exact[near], atol=1e-4)
+    np.testing.assert_array_equal(np.abs(wrapped[~near]), 2 * reach)

@@ -63,6 +63,7 @@ import numpy as np
 from ..model.cells import FACES
 from ..model.mesh import Mesh
 from ..model._grouping import index_dtype
+from ..model._geometry import _cross, _dot
 from ..model._split_tables import TABLE_DIAGONALS
 from ..model.corners import corner_sum
 from ..model.simplices import _split_plan
@@ -168,18 +169,16 @@ class _HexCells:
                 tets = _tetrahedra(int(code))
                 for lo in range(0, chosen.size, _CELL_CHUNK):
                     part = chosen[lo:lo + _CELL_CHUNK]
-                    cells = start + part
+                    low_part, high_part = low[start + part], high[start + part]
                     if _QUADRATURE:  # cells no band edge crosses: by the cell's trilinear map
-                        low_part, high_part = low[cells], high[cells]
                         inside = (low_part > _LOW) & (high_part < _HIGH)
                         smooth = inside | (high_part < _LOW) | (low_part > _HIGH)
                         if smooth.any():
                             self._smooth(block.connectivity, part[smooth], clipped, columns, start, inside[smooth])
-                            part = part[~smooth]
+                            part, low_part, high_part = part[~smooth], low_part[~smooth], high_part[~smooth]
                             if part.size == 0:
                                 continue
-                            cells = start + part
-                    weights = self._chunk(tets, block.connectivity[part], clipped, columns, low[cells], high[cells])
+                    weights = self._chunk(tets, block.connectivity[part], clipped, columns, low_part, high_part)
                     self.chunks.append((tets, block.connectivity, part, weights))
         # the corners of cells where c varies: those of the cells where it varies on every
         # tetrahedron are all known, the others were marked as they came
@@ -301,11 +300,8 @@ class _HexCells:
             b.append(corner_sum(v[q] for q in high_face) - corner_sum(v[q] for q in low_face))
         del X
 
-        def cross(p, q):
-            return (p[1] * q[2] - p[2] * q[1], p[2] * q[0] - p[0] * q[2], p[0] * q[1] - p[1] * q[0])
-
-        a0, a1, a2 = cross(j[1], j[2]), cross(j[2], j[0]), cross(j[0], j[1])
-        det = np.abs(j[0][0] * a0[0] + j[0][1] * a0[1] + j[0][2] * a0[2])
+        a0, a1, a2 = _cross(j[1], j[2]), _cross(j[2], j[0]), _cross(j[0], j[1])
+        det = np.abs(_dot(j[0], a0))
         g2 = 0.0
         for d in range(3):
             g = b[0] * a0[d] + b[1] * a1[d] + b[2] * a2[d]

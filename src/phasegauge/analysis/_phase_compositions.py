@@ -135,11 +135,12 @@ def interface_distance(mesh, c_cell, contour, *, level=0.5, reach=np.inf, measur
         copied = _ContourGeometry(copies)
         rows = np.arange(c.size)
         if limited:  # the copies lie beyond a periodic face: only cells within reach of one can be near
-            names, _ = _normalize_periodic(mesh, periodic)
-            bounds = mesh.bounds
+            names, columns = _normalize_periodic(mesh, periodic)
+            bounds = mesh.bounds  # in x, y, z; the centroids in the mesh's own axes (columns)
             edge = np.zeros(c.size, dtype=bool)
-            for axis in (AXIS_INDEX[name] for name in names):
-                x = points[:, axis]
+            for name, column in zip(names, columns):
+                axis = AXIS_INDEX[name]
+                x = points[:, column]
                 edge |= (x - bounds[0, axis] <= reach) | (bounds[1, axis] - x <= reach)
             rows = rows[edge]
             rows = rows[_maybe_near_cells(mesh, rows, copied.centroids[:, list(contour.plane_axes)], reach)]
