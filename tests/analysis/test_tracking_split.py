@@ -88,3 +88,20 @@ def test_a_whole_cell_takes_the_droplet_of_its_heaviest_labelled_piece():
     assert _whole_labels(step, outline).tolist() == [7, 2, -1]
     step["weights"] = np.array([0.6, 0.5, 0.3, 0.4, 0.4])
     assert _whole_labels(step, outline).tolist() == [5, 2, -1]
+
+
+def test_whole_cell_numbers_with_a_gap_are_never_found():
+    """A block split in part keeps its rows' numbers, so some whole cells have no pieces (here
+    whole cell 1) and no centroid: a point is found in a whole cell that exists, the nearest of
+    them (elementary geometry: the three tetrahedra lie far from the origin, where a cell with no
+    pieces would have its centroid)."""
+    from phasegauge.model.mesh import Mesh
+    from phasegauge.model.outline import MeshOutline
+
+    points = np.array([[5.0, 5, 5], [6, 5, 5], [5, 6, 5], [5, 5, 6], [7, 7, 7], [8, 7, 7], [7, 8, 7], [7, 7, 8]])
+    tetra = np.array([[0, 1, 2, 3], [1, 2, 3, 0], [4, 5, 6, 7]])
+    mesh = Mesh(points, [("tetra", tetra)], pieces=[np.array([0, 0, 2])])
+    outline = MeshOutline.of(mesh, centroids=True)
+    assert outline.cell_centroids.shape[0] == 3  # whole cells 0, 1 (no pieces), 2
+    found = DropletTracker()._locate(outline, np.array([[0.0, 0, 0], [5.2, 5.2, 5.2], [7.3, 7.2, 7.2]]))
+    assert found.tolist() == [0, 0, 2]

@@ -106,7 +106,7 @@ class DropletTracker:
         self.ignore_remerge_within = int(ignore_remerge_within)
         self.periodic = periodic
         self._previous = None
-        self._tree = (None, None)
+        self._tree = (None, None, None)
         self._next_track = 0
         self._count = 0
         self._droplets: list = []
@@ -239,8 +239,16 @@ class DropletTracker:
     def _locate(self, mesh: MeshOutline, points: np.ndarray) -> np.ndarray:
         """Cell of ``mesh`` whose centroid is nearest to each point (a whole cell of a split mesh)."""
         if self._tree[0] is not mesh:
-            self._tree = (mesh, cKDTree(mesh.cell_centroids))
-        return self._tree[1].query(points)[1]
+            # a split mesh's whole cells numbered with gaps (a block split in part keeps its rows'
+            # numbers) have no pieces and no centroid: the tree holds the whole cells that have
+            numbers = None if mesh.cell_parents is None else np.flatnonzero(
+                np.bincount(mesh.cell_parents, minlength=mesh.cell_centroids.shape[0]))
+            if numbers is not None and numbers.size == mesh.cell_centroids.shape[0]:
+                numbers = None
+            tree = cKDTree(mesh.cell_centroids if numbers is None else mesh.cell_centroids[numbers])
+            self._tree = (mesh, tree, numbers)
+        found = self._tree[1].query(points)[1]
+        return found if self._tree[2] is None else self._tree[2][found]
 
     def _link(self, prev: dict, cur: dict) -> np.ndarray:
         dt = cur["time"] - prev["time"]
