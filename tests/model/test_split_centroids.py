@@ -91,3 +91,23 @@ def test_overlap_probe_on_a_split_mesh_matches_the_same_tetrahedra_unsplit(tmp_p
     whole = Mesh(mesh.points, [("tetra", mesh.blocks[0].connectivity)])
     assert _covered_boundary_faces(mesh) == _covered_boundary_faces(whole) == 0
     assert mesh._geometry[1] is None  # the tree's centroids were made on the read, not kept
+
+
+def test_whole_centroids_of_pieces_in_any_order(tmp_path, monkeypatch):
+    """Pieces listed face after face (numbers from all over the mesh in one chunk, as cones of a
+    block split in part come) give the whole cells' centroids of the pieces in order: the
+    measure-weighted mean of the pieces' corner means (elementary geometry)."""
+    import phasegauge.model._centroids as centroids_module
+
+    mesh = _split(tmp_path, grid_mesh((8, 8, 6), kind="hexahedron", jitter=0.2, seed=4))
+    conn, parents = mesh.blocks[0].connectivity, mesh.cell_parents
+    order = np.random.default_rng(2).permutation(mesh.n_cells)
+    monkeypatch.setattr(centroids_module, "_CHUNK", 97)  # 97 pieces span about all 384 whole cells
+    shuffled = Mesh(mesh.points, [("tetra", conn[order])], pieces=[parents[order]])
+    got = whole_cell_centroids(shuffled)
+    corners = mesh.points[conn].mean(axis=1)
+    volume = np.abs(mesh.signed_measures)
+    n = int(parents.max()) + 1
+    expected = np.stack([np.bincount(parents, volume * corners[:, d], n) for d in range(3)], axis=1)
+    expected /= np.bincount(parents, volume, n)[:, None]
+    np.testing.assert_allclose(got, expected, rtol=1e-13)

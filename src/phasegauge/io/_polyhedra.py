@@ -148,13 +148,16 @@ def read_polyhedral(path: str):
     grid = _read_grid(path)
     points = np.asarray(grid.points, dtype=np.float64)
     types = np.asarray(grid.celltypes, dtype=np.int64)
+    n_polyhedra = int(np.count_nonzero(types == VTK_POLYHEDRON))
+    if n_polyhedra == 0:  # face arrays named, but no polyhedron among the cells
+        return read_with_meshio(path, "vtu" if path.lower().endswith(".vtu") else "vtk")
     conn, offs = _cell_array(grid.GetCells())
     sizes = np.diff(offs)
     blocks, rows_of = [], []  # kept cells: (meshio type, connectivity), input rows
     # cells split with the polyhedra: (how to make their face stream, input rows); the streams are
     # made only if the split is (a kept one of the same arrays needs none)
     streams = []
-    face_arrays = _face_arrays(grid, path) if np.any(types == VTK_POLYHEDRON) else ()
+    face_arrays = _face_arrays(grid, path)
     for t in np.unique(types):
         rows_t = np.flatnonzero(types == t)
         if t == VTK_POLYHEDRON:
@@ -174,16 +177,14 @@ def read_polyhedral(path: str):
                 continue
             blocks.append((name, cells))
             rows_of.append(rows)
-    if not any(types == VTK_POLYHEDRON):  # face arrays named, but no polyhedron among the cells
-        return read_with_meshio(path, "vtu" if path.lower().endswith(".vtu") else "vtk")
     point_data = {name: np.asarray(grid.point_data[name]) for name in grid.point_data.keys()}
     cell_data = {name: np.asarray(grid.cell_data[name]) for name in grid.cell_data.keys()}
     field_data = {name: np.asarray(grid.field_data[name]) for name in grid.field_data.keys()}
     # what the streams are made from: equal arrays split alike (the polyhedra's own rows of the cell
     # arrays list their points only, which the split does not read: not hashed when all cells are)
-    made_from = (types,) + ((conn, offs) if not np.all(types == VTK_POLYHEDRON) else ()) + face_arrays
+    made_from = (types,) + ((conn, offs) if n_polyhedra < types.size else ()) + face_arrays
     return PolyhedralRead(path, points, blocks, rows_of, streams, made_from, point_data, cell_data, field_data,
-                          int(np.count_nonzero(types == VTK_POLYHEDRON)))
+                          n_polyhedra)
 
 
 class PolyhedralRead:

@@ -67,11 +67,17 @@ def _split_geometry(mesh, X: np.ndarray) -> tuple:
             cells = slice(start + lo, start + lo + n)
             cell_geometry(block.cell_type, X, part, out=(signed[cells], scratch[:n]))
             weight, whole = np.abs(signed[cells]), parents[cells]  # the measures (of cell_measures)
-            first = int(whole.min())  # a reader's pieces come whole cell after whole cell: a short range
-            whole = whole - first
+            # the polyhedra's pieces come whole cell after whole cell (a short range of numbers);
+            # cones of a block split in part come face after face (numbers from all over the block)
+            first = int(whole.min())
+            spread = int(whole.max()) - first >= 2 * n
+            at, whole = np.unique(whole, return_inverse=True) if spread else (None, whole - first)
             for d in range(dim + 1):
                 part_sum = np.bincount(whole, weights=weight * scratch[:n, d] if d < dim else weight)
-                moment[first:first + part_sum.size, d] += part_sum
+                if at is None:
+                    moment[first:first + part_sum.size, d] += part_sum
+                else:
+                    moment[at, d] += part_sum
     total = moment[:, dim]
     return signed, moment[:, :dim] / np.where(total > 0, total, 1.0)[:, None]
 
