@@ -91,6 +91,16 @@ def test_overlap_probe_on_a_split_mesh_matches_the_same_tetrahedra_unsplit(tmp_p
     whole = Mesh(mesh.points, [("tetra", mesh.blocks[0].connectivity)])
     assert _covered_boundary_faces(mesh) == _covered_boundary_faces(whole) == 0
     assert mesh._geometry[1] is None  # the tree's centroids were made on the read, not kept
+    # a small tetrahedron inside one of the pieces, a whole cell of its own: its 4 faces are
+    # boundary faces whose outer side lies inside that piece (elementary geometry: 4)
+    conn = mesh.blocks[0].connectivity
+    host = mesh.points[conn[len(conn) // 2]]
+    inner = host.mean(axis=0) + 0.3 * (host - host.mean(axis=0))
+    points = np.vstack([mesh.points, inner])
+    tetra = np.vstack([conn, mesh.n_points + np.arange(4)])
+    crowded = Mesh(points, [("tetra", tetra)], pieces=[np.append(mesh.cell_parents, mesh.cell_parents.max() + 1)])
+    assert crowded._geometry[1] is None
+    assert _covered_boundary_faces(crowded) == _covered_boundary_faces(Mesh(points, [("tetra", tetra)])) == 4
 
 
 def test_whole_centroids_of_pieces_in_any_order(tmp_path, monkeypatch):

@@ -324,10 +324,10 @@ class Mesh:
 
         Notes
         -----
-        Exact for linear simplices and polygons; for quads and hexahedra the
-        determinant of the bilinear/trilinear map is integrated with 2-point
-        Gauss rules per direction, which is exact, so non-planar hexahedron
-        faces are handled; wedges use a degree-4 triangle rule times a 2-point
+        Exact for linear simplices and polygons; quads and hexahedra take the
+        closed forms of the bilinear and trilinear maps' integrals (exact, as the
+        2-point Gauss rule per direction is, so non-planar hexahedron faces are
+        handled); wedges use a degree-4 triangle rule times a 2-point
         Gauss rule (exact); pyramids are integrated as hexahedra whose top face
         collapses to the apex (exact for a bilinear base). 2D meshes whose cells are all
         wound clockwise are accepted: measures are magnitudes. Hexahedra and wedges that are
