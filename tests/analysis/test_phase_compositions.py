@@ -252,24 +252,32 @@ def test_cells_the_contour_crosses_are_not_bulk_with_a_reach_under_half_a_cell(k
         assert bulk[exact > reach + h].all()
 
 
+def _cosine_along(mesh, column):
+    """c = 1/2 + 1/2 cos(2 pi (s - 0.3)) along the mesh's analysis ``column`` s on [0, 1]: the cell
+    values, the contour, and each centroid's distance to the nearest of the interfaces at s = 0.05
+    and 0.55 and their copies a period away, -0.45 and 1.05 [analytic]."""
+    from phasegauge.analysis.interface import find_interface
+
+    c_point = 0.5 + 0.5 * np.cos(2 * np.pi * (mesh.coordinates[:, column] - 0.3))
+    s = mesh.cell_centroids[:, column]
+    exact = np.min(np.abs(s[:, None] - np.array([-0.45, 0.05, 0.55, 1.05])[None, :]), axis=1)
+    return mesh.point_to_cell(c_point), find_interface(mesh, c_point), exact
+
+
 @pytest.mark.parametrize("kind,reach", [("quad", np.inf), ("triangle", 0.3), ("quad", 0.08), ("tetra", 0.3)])
 def test_interface_distance_wraps_a_periodic_boundary(kind, reach):
     # c = 1/2 + 1/2 cos(2 pi (x - 0.3)) on [0, 1] periodic in x: interfaces (c = 1/2) at x = 0.05 and
     # x = 0.55, and a period away at x = 1.05 and -0.45, so the distance of a centroid at x is
     # min |x - x_i| over those four [analytic]; without the wrap a cell at x = 0.95 is 0.4 from the
     # interface, not 0.1
-    from phasegauge.analysis.interface import find_interface
     from phasegauge.analysis.thermo import interface_distance
 
     if kind == "tetra":
         mesh = grid_mesh((40, 3, 3), bounds=[(0.0, 1.0), (0.0, 0.1), (0.0, 0.1)], kind=kind)
     else:
         mesh = grid_mesh((80, 8), bounds=[(0.0, 1.0), (0.0, 0.1)], kind=kind)
-    c_point = 0.5 + 0.5 * np.cos(2 * np.pi * (mesh.coordinates[:, 0] - 0.3))
-    c_cell = mesh.point_to_cell(c_point)
-    contour = find_interface(mesh, c_point)
+    c_cell, contour, exact = _cosine_along(mesh, 0)
     x = mesh.cell_centroids[:, 0]
-    exact = np.min(np.abs(x[:, None] - np.array([-0.45, 0.05, 0.55, 1.05])[None, :]), axis=1)
     wrapped = interface_distance(mesh, c_cell, contour, reach=reach, periodic=("x",))
     near = exact <= reach
     # the contour's points are linear interpolations of a cosine at its zero: O(h^3) off; the
@@ -298,7 +306,6 @@ def test_interface_distance_wraps_a_periodic_axis_of_a_mesh_in_the_y_z_plane(rea
     # the case above turned into the y-z plane (x = 0 everywhere), periodic along z: the mesh's
     # analysis columns are (y, z), so the wrap must read the z column by its place among them,
     # not by z's place in x, y, z [analytic: the same four interfaces, now at z = -0.45 ... 1.05]
-    from phasegauge.analysis.interface import find_interface
     from phasegauge.analysis.thermo import interface_distance
     from phasegauge.model.mesh import Mesh
 
@@ -306,12 +313,7 @@ def test_interface_distance_wraps_a_periodic_axis_of_a_mesh_in_the_y_z_plane(rea
     points = np.column_stack([np.zeros(flat.n_points), flat.points[:, 0], flat.points[:, 1]])
     mesh = Mesh(points, [("quad", flat.blocks[0].connectivity)])
     assert tuple(mesh.plane_axes[:2]) == (1, 2)
-    z = mesh.coordinates[:, 1]
-    c_point = 0.5 + 0.5 * np.cos(2 * np.pi * (z - 0.3))
-    c_cell = mesh.point_to_cell(c_point)
-    contour = find_interface(mesh, c_point)
-    z_cell = mesh.cell_centroids[:, 1]
-    exact = np.min(np.abs(z_cell[:, None] - np.array([-0.45, 0.05, 0.55, 1.05])[None, :]), axis=1)
+    c_cell, contour, exact = _cosine_along(mesh, 1)
     wrapped = interface_distance(mesh, c_cell, contour, reach=reach, periodic=("z",))
     near = exact <= reach
     np.testing.assert_allclose(np.abs(wrapped[near]), exact[near], atol=1e-4)
