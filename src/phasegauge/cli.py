@@ -181,6 +181,9 @@ def inspect(path, as_json, scan, sort_by_time):
 @click.option("--drift-tolerance", type=float, default=1e-3, show_default=True,
               help="Relative phase-volume drift that is flagged.")
 @click.option("--workers", "-j", type=int, default=1, show_default=True, help="Local worker processes.")
+@click.option("--threads", type=int, default=None,
+              help="Threads of each process for mesh work [default: the CPUs it may use, shared among the "
+                   "workers; PHASEGAUGE_THREADS caps them].")
 @click.option("--scheduler", default=None, help="Dask scheduler address (tcp://host:8786), or 'local'.")
 @click.option("--resume", is_flag=True, help="Finish an interrupted run in OUT, reusing finished steps.")
 @click.option("--overwrite", is_flag=True, help="Replace an existing output folder.")
@@ -214,7 +217,8 @@ def measure(path, field, value_range, phase, level, velocity, field_location, so
             time_to, every, analyses,
             adjacency, periodic,
             ignore_remerge_within, densities, diffusivity, box, section_axis, section_count, section_positions,
-            mixing_target, segregation_scale, drift_tolerance, workers, scheduler, resume, overwrite, strict, keep_3d,
+            mixing_target, segregation_scale, drift_tolerance, workers, threads, scheduler, resume, overwrite, strict,
+            keep_3d,
             contours, snapshots, plot_format, keep_cache, quiet, probe_file, line_file, measured_file,
             free_energy=None, coarsening=False, **mixture):
     """Measure interface, droplets, mixing and conservation on every step of PATH.
@@ -237,7 +241,7 @@ def measure(path, field, value_range, phase, level, velocity, field_location, so
         sort_by_time=sort_by_time, keep_3d=keep_3d, steps=steps, time_from=time_from, time_to=time_to, every=every,
         free_energy=free_energy, coarsening=coarsening,
         **_point_options(probe_file, line_file, measured_file), **_mixture_values(**mixture))
-    result = run_measure(path, options=options, out=out, workers=workers, scheduler=scheduler,
+    result = run_measure(path, options=options, out=out, workers=workers, threads=threads, scheduler=scheduler,
                          overwrite=overwrite, resume=resume, progress=None if not quiet else False,
                          contours=contours, snapshots=snapshots, invocation=_command_line(),
                          plot_format=plot_format, keep_cache=keep_cache)

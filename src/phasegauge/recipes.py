@@ -37,6 +37,7 @@ A measure recipe::
     [run]
     analyses = ["interface", "droplets", "mixing", "conservation"]
     workers = 2
+    threads = 4                     # optional: threads of each process (default: the CPUs, shared)
     scheduler = "tcp://host:8786"   # optional Dask cluster
     strict = false
     snapshots = 4
@@ -103,7 +104,7 @@ RECIPE_SCHEMA = {
     "mixing": {"box": list, "section_axis": str, "section_count": int, "section_positions": list,
                "mixing_target": (int, float), "segregation_scale": bool},
     "conservation": {"densities": list, "drift_tolerance": (int, float)},
-    "run": {"analyses": list, "workers": int, "scheduler": str, "strict": bool, "snapshots": int},
+    "run": {"analyses": list, "workers": int, "threads": int, "scheduler": str, "strict": bool, "snapshots": int},
     "output": {"folder": str, "overwrite": bool, "plot_format": str, "keep_cache": bool},
     "validation": {"probes": str, "lines": str, "measured": str},
     "miscibility": {"model": str, "temperature": (int, float), "temperature_field": str, "solute": str,
@@ -268,6 +269,7 @@ def _check_values(data: dict, kind: str, path: str) -> None:
     one entry at a time, so the message names ``[table] key`` and the value found.
     """
     from .model.indicator import normalize_phase, parse_range
+    from .model._threads import check_threads
     from .run.options import MeasureOptions, check_workers
 
     def refuse(table, key, err):
@@ -307,11 +309,12 @@ def _check_values(data: dict, kind: str, path: str) -> None:
         except OptionError as err:
             raise refuse(table, "range" if "range" in err.what else "phase", err) from None
     run = data.get("run", {})
-    try:
-        if "workers" in run:
-            check_workers(run["workers"])
-    except OptionError as err:
-        raise refuse("run", "workers", err) from None
+    for key, check in (("workers", check_workers), ("threads", check_threads)):
+        try:
+            if key in run:
+                check(run[key])
+        except OptionError as err:
+            raise refuse("run", key, err) from None
     if run.get("snapshots", 0) < 0:
         raise OptionError(f"[run] snapshots must be 0 or more, found {run['snapshots']}", where=path,
                           fix="4 snapshots is the default")
@@ -388,7 +391,7 @@ def measure_arguments(recipe: dict) -> dict:
         **recipe.get("phase_field", {}), **_point_options(recipe.get("validation", {})),
         **recipe.get("miscibility", {}))
     return dict(path=inp.get("path"), options=options, out=out["folder"], overwrite=out.get("overwrite", False),
-                workers=run.get("workers", 1), scheduler=run.get("scheduler"),
+                workers=run.get("workers", 1), threads=run.get("threads"), scheduler=run.get("scheduler"),
                 contours=iface.get("contours", True), snapshots=run.get("snapshots", 4),
                 plot_format=out.get("plot_format", "png"), keep_cache=out.get("keep_cache", False),
                 invocation={"recipe": recipe.get("recipe_text", ""), "recipe_path": recipe.get("recipe_path", "")})

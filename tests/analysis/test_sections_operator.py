@@ -18,9 +18,9 @@ def builds(monkeypatch):
     calls = []
     build = _section_planes._build_sections
 
-    def counting(*args):
+    def counting(*args, **kwargs):
         calls.append(args[1:])
-        return build(*args)
+        return build(*args, **kwargs)
 
     monkeypatch.setattr(_section_planes, "_build_sections", counting)
     return calls

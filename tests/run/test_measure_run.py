@@ -215,7 +215,8 @@ def test_recipe_values_are_checked_before_any_work_with_the_recipe_names(tmp_pat
              '[interface]\ndiffusivity = -1.0\n': r"\[interface\] diffusivity must be non-negative",
              '[mixing]\nmixing_target = 2.0\n': r"\[mixing\] mixing_target must lie in",
              '[mixing]\nsection_axis = "w"\n': r"\[mixing\] section_axis must be x, y or z",
-             '[run]\nworkers = 0\n': r"\[run\] workers must be at least 1"}
+             '[run]\nworkers = 0\n': r"\[run\] workers must be at least 1",
+             '[run]\nthreads = 0\n': r"\[run\] threads must be a whole number of at least 1"}
     for extra, message in cases.items():
         recipe = tmp_path / "r.toml"
         recipe.write_text(base + extra)
@@ -289,3 +290,18 @@ def test_wrong_field_stops_a_parallel_run_after_the_first_step(tmp_path):
     with pytest.raises(FieldNotFoundError, match="field 'nope' not found; fields there: alpha"):
         measure(listing, "nope", out=tmp_path / "o", workers=2, analyses=("conservation",))
     assert not (tmp_path / "o").exists()
+
+
+def test_threads_give_the_same_tables_and_are_recorded(tmp_path):
+    """The section operator cut on 3 threads: profiles.csv and steps.csv equal to one thread's."""
+    listing = _moving_disc_series(str(tmp_path), steps=2)
+    tables = {}
+    for threads in (1, 3):
+        out = tmp_path / f"o{threads}"
+        measure(listing, "alpha", section_axis="x", section_count=7, threads=threads, out=str(out))
+        tables[threads] = [pd.read_csv(out / name) for name in ("steps.csv", "profiles.csv")]
+        assert json.loads((out / "manifest.json").read_text())["execution"]["threads"] == threads
+    for one, three in zip(tables[1], tables[3]):
+        pd.testing.assert_frame_equal(one, three, check_exact=True)
+    res = CliRunner().invoke(main, ["measure", listing, "-f", "alpha", "--threads", "0", "-o", str(tmp_path / "b")])
+    assert res.exit_code == 2 and "threads must be a whole number of at least 1" in res.output

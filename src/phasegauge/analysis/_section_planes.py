@@ -10,6 +10,8 @@ interpolates its fields along the cut edges (:mod:`._cross_sections` sums the mo
 
 from __future__ import annotations
 
+import itertools
+import queue
 from dataclasses import dataclass, replace
 from types import MappingProxyType
 
@@ -19,6 +21,7 @@ from ..model._grouping import _bits, _sort_order, index_dtype
 from ..model.corners import cell_extent, corner_mean
 from ..model.mesh import Mesh
 from ..model.simplices import needs_centres, split_cells
+from ..model._threads import ordered_map
 
 
 #: section operators kept per mesh: the latest ones built (a series uses one, for all its steps)
@@ -321,23 +324,42 @@ def _layer_pieces(mesh: Mesh, axis: int, position: float, lower_end: bool, cells
 
 
 def _build_sections(mesh: Mesh, axis: int, positions: np.ndarray, lower_ends: np.ndarray,
-                    locations: frozenset) -> _Sections:
-    """The section operator of ``positions`` along analysis axis ``axis`` (see :class:`_Sections`)."""
+                    locations: frozenset, *, threads: int = 1) -> _Sections:
+    """The section operator of ``positions`` along analysis axis ``axis`` (see :class:`_Sections`).
+
+    The planes are cut on up to ``threads`` threads, each with its own coordinate buffers, and
+    joined in plane order: the same arrays bit for bit on any number of threads.
+    """
     lo, hi = cell_extent(mesh, axis, keep=False)  # the operator itself is kept
     dim = mesh.dimension
     n_cuts, n_added = 0, 0
-    columns = _NodeColumns(mesh)
     measures, parents, corners, starts, ends, weights, centres = [], [], [], [], [], [], []
     points, cell_fields = "point" in locations, "cell" in locations
-    for position, lower_end in zip(positions, lower_ends):
+    idle = queue.SimpleQueue()  # node coordinates' buffers (:class:`_NodeColumns`) no plane is using
+
+    def cut(plane):
+        position, lower_end = plane
         crossed = (lo <= position) & (hi > position) if lower_end else (lo < position) & (hi >= position)
         cells = np.nonzero(crossed)[0]
         del crossed
-        m, parent, start, end, t, plane_centres, edges = (
-            _layer_pieces(mesh, axis, float(position), bool(lower_end), cells, columns)
-            or _plane_pieces(mesh, axis, float(position), bool(lower_end), cells, columns))
-        del cells
-        cut, first = edges
+        try:
+            columns = idle.get_nowait()
+        except queue.Empty:  # one set of buffers per thread at work
+            columns = _NodeColumns(mesh)
+        pieces = (_layer_pieces(mesh, axis, float(position), bool(lower_end), cells, columns)
+                  or _plane_pieces(mesh, axis, float(position), bool(lower_end), cells, columns))
+        idle.put(columns)
+        if not cell_fields:  # the pieces' cells serve cell fields only
+            return pieces[:1] + (None,) + pieces[2:]
+        return pieces[:1] + (pieces[1].astype(index_dtype(mesh.n_cells), copy=False),) + pieces[2:]
+
+    planes = list(zip(positions, lower_ends))
+    # the first plane here: it makes what the mesh caches for every plane (the split plan, the
+    # face numbers), which the threads then only read
+    cut_planes = itertools.chain([cut(planes[0])] if planes else [],
+                                 ordered_map(cut, planes[1:], threads=threads))
+    for m, parent, start, end, t, plane_centres, edges in cut_planes:
+        cut_edges, first = edges
         del edges
         # the centres numbered after those of earlier planes: a strictly increasing map of the
         # node ids, so the edge keys above sort and match alike before and after it
@@ -345,8 +367,8 @@ def _build_sections(mesh: Mesh, axis: int, positions: np.ndarray, lower_ends: np
         end = _renumbered(end, mesh.n_points, mesh.n_points + n_added)
         n_added += sum(c.shape[0] for c in plane_centres)
         measures.append(m)
-        if cell_fields:  # the pieces' cells serve cell fields only
-            parents.append(parent.astype(index_dtype(mesh.n_cells), copy=False))
+        if cell_fields:
+            parents.append(parent)
         del parent
         # kept per plane (never joined: a join holds them twice), each in the narrowest type
         # its values need so far; the corners stored corner by corner, (dim, n), seen as
@@ -354,13 +376,13 @@ def _build_sections(mesh: Mesh, axis: int, positions: np.ndarray, lower_ends: np
         nodes = index_dtype(mesh.n_points + n_added)
         part = np.empty((dim, m.size), dtype=index_dtype(n_cuts + first.size))
         for a in range(dim):
-            np.add(cut[a::dim], part.dtype.type(n_cuts), out=part[a], casting="unsafe")
+            np.add(cut_edges[a::dim], part.dtype.type(n_cuts), out=part[a], casting="unsafe")
         corners.append(part.T)
-        del cut
+        del cut_edges
         starts.append(start.astype(nodes, copy=False))
         ends.append(end.astype(nodes, copy=False))
         weights.append(t)
-        del start, end, t  # the plane's full-size arrays go before the next plane is cut
+        del start, end, t  # the plane's full-size arrays go before the next plane's are read
         centres += plane_centres
         n_cuts += first.size
     kept = ()
@@ -436,11 +458,11 @@ def _used_centres(n_points: int, start: list, end: list, centres: list) -> tuple
 
 
 def _sections(mesh: Mesh, axis: int, positions: np.ndarray, lower_ends: np.ndarray,
-              locations: frozenset) -> _Sections:
+              locations: frozenset, *, threads: int = 1) -> _Sections:
     """The section operator, from the mesh's cache when the same planes were cut before.
 
     ``locations``: where the fields live ('point', 'cell'); an operator kept
-    for other locations is built again for all of them.
+    for other locations is built again for all of them. ``threads``: as :func:`_build_sections`.
     """
     store = mesh.memo("cross_sections", dict)
     key = (int(axis), positions.tobytes())
@@ -449,6 +471,6 @@ def _sections(mesh: Mesh, axis: int, positions: np.ndarray, lower_ends: np.ndarr
         locations = locations | (kept.locations if kept is not None else frozenset())
         while len(store) >= _KEEP:
             store.pop(next(iter(store)))  # the oldest
-        kept = _build_sections(mesh, axis, positions, lower_ends, locations)
+        kept = _build_sections(mesh, axis, positions, lower_ends, locations, threads=threads)
     store[key] = kept
     return kept

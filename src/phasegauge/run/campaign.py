@@ -216,11 +216,14 @@ def _side_by_side(jobs, settings, *, workers, progress) -> dict:
     import multiprocessing as mp
     from multiprocessing.connection import wait
 
+    from ..model._threads import thread_count
     from .progress import Progress
 
     ctx = mp.get_context("fork") if hasattr(os, "fork") else mp.get_context()
     side = min(workers, len(jobs))
     inner = max(1, workers // len(jobs))
+    # the CPUs shared among every process measuring at once, as a single run shares them
+    settings = {**settings, "threads": thread_count(side * inner)}
     queue = list(jobs)
     running = {}  # connection -> (job, process)
     measured = {}

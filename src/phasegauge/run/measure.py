@@ -26,6 +26,7 @@ from dataclasses import dataclass, field
 import numpy as np
 
 from ..errors import OptionError, PhasegaugeWarning, SeriesError
+from ..model._threads import check_threads, thread_count
 from .options import ANALYSES, OLD_OPTION_NAMES, MeasureOptions, check_workers, renamed_keywords
 from .step import StepResult, run_step
 
@@ -87,7 +88,7 @@ class MeasureResult:
 
 
 def measure(path, field: str | None = None, *, options: MeasureOptions | None = None, out=None,
-            workers: int = 1, scheduler: str | None = None, overwrite: bool = False,
+            workers: int = 1, threads: int | None = None, scheduler: str | None = None, overwrite: bool = False,
             resume: bool = False, progress: bool | None = False, contours: bool = True,
             snapshots: int = 4, mesh_pool=None, invocation: dict | None = None, plot_format: str = "png",
             keep_cache: bool = False, progress_label: str = "steps", **option_values) -> MeasureResult:
@@ -109,6 +110,11 @@ def measure(path, field: str | None = None, *, options: MeasureOptions | None = 
         Without it nothing is written.
     workers : int
         Local worker processes (1: in this process).
+    threads : int, optional
+        Threads of each process for the mesh work that splits into independent parts (the
+        planes of the section operator). Default: the CPUs this process may use (at most 8, or
+        the environment variable ``PHASEGAUGE_THREADS``) shared among the local workers; one on
+        a Dask cluster's workers. The tables are the same bit for bit on any number.
     scheduler : str, optional
         Dask scheduler address, or ``'local'`` for a local Dask cluster.
     overwrite, resume : bool
@@ -163,7 +169,7 @@ def measure(path, field: str | None = None, *, options: MeasureOptions | None = 
     """
     from ..io import Series
 
-    own = ("path", "field", "options", "out", "workers", "scheduler", "overwrite", "resume", "progress",
+    own = ("path", "field", "options", "out", "workers", "threads", "scheduler", "overwrite", "resume", "progress",
            "contours", "snapshots", "mesh_pool", "invocation", "plot_format", "keep_cache", "progress_label")
     option_values = renamed_keywords(option_values, [f.name for f in dataclasses.fields(MeasureOptions)] + list(own),
                                      old={**OLD_OPTION_NAMES, "write_contours": "contours"}, where="measure()")
@@ -175,6 +181,7 @@ def measure(path, field: str | None = None, *, options: MeasureOptions | None = 
     elif option_values or field is not None:
         options = dataclasses.replace(options, **({"field": field} if field else {}), **option_values)
     workers = check_workers(workers)
+    threads = thread_count(1 if scheduler else workers) if threads is None else check_threads(threads)
     check_snapshots(snapshots)
     from .executors import check_scheduler
 
@@ -197,7 +204,7 @@ def measure(path, field: str | None = None, *, options: MeasureOptions | None = 
         from ..report._files import output_transaction
 
         with output_transaction(out) as txn:
-            return _measure(series, options, out, txn, workers=workers, scheduler=scheduler,
+            return _measure(series, options, out, txn, workers=workers, threads=threads, scheduler=scheduler,
                             overwrite=overwrite, resume=resume, progress=progress,
                             contours=contours, snapshots=snapshots, notes=notes,
                             invocation=invocation or {"python": "phasegauge.measure"},
@@ -246,7 +253,7 @@ def _records(caught) -> list:
             for w in caught if issubclass(w.category, PhasegaugeWarning)]
 
 
-def _measure(series, options, out, txn, *, workers, scheduler, overwrite, resume, progress,
+def _measure(series, options, out, txn, *, workers, threads, scheduler, overwrite, resume, progress,
              contours, snapshots, notes, invocation, output, progress_label="steps") -> MeasureResult:
     from .assemble import TrackingFeed, assemble
     from .cache import StepCache
@@ -271,7 +278,7 @@ def _measure(series, options, out, txn, *, workers, scheduler, overwrite, resume
             contour_dir = os.path.join(os.fspath(out), "contours")
             os.makedirs(contour_dir, exist_ok=True)
     runner = StepRunner(series.path, options, cache=cache, contour_dir=contour_dir,
-                        keep={indices[k] for k in snapshot_steps(n, snapshots)}, series=series)
+                        keep={indices[k] for k in snapshot_steps(n, snapshots)}, series=series, threads=threads)
     feed = TrackingFeed(options, indices, cache=cache)
     before = input_stamps(series)
     bar = Progress(n, progress_label, enabled=progress)
@@ -300,7 +307,7 @@ def _measure(series, options, out, txn, *, workers, scheduler, overwrite, resume
         from ._report_data import measure_report_data
 
         write_measure_report(out, result, **measure_report_data(series, result), started=started,
-                             execution={"workers": workers, "scheduler": scheduler, "resume": resume,
+                             execution={"workers": workers, "threads": threads, "scheduler": scheduler, "resume": resume,
                                         "contours": bool(contours), "invocation": invocation, **output})
         if not output["keep_cache"]:
             import shutil

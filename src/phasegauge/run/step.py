@@ -150,7 +150,8 @@ def flatten_step(step, options):
     return replace(step, mesh=flat.mesh, fields=fields), flat
 
 
-def analyse_step(step, options, *, contour_dir: str | None = None, reported_meshes: set | None = None) -> StepResult:
+def analyse_step(step, options, *, contour_dir: str | None = None, reported_meshes: set | None = None,
+                 threads: int = 1) -> StepResult:
     """Run the chosen analyses on one step read into the model (pure apart from contour files).
 
     Parameters
@@ -161,6 +162,9 @@ def analyse_step(step, options, *, contour_dir: str | None = None, reported_mesh
         Folder to write the step's interface into (``interface_NNNNNN.vtu``).
     reported_meshes : set of str, optional
         Signatures of meshes whose quality was already warned about (updated).
+    threads : int
+        Threads for the mesh work that splits into independent parts (the planes of a section
+        operator); the result is the same bit for bit on any number.
     """
     from ..analysis import conservation, droplets as droplets_mod, interface, mixing
 
@@ -236,7 +240,7 @@ def analyse_step(step, options, *, contour_dir: str | None = None, reported_mesh
                                             positions=options.section_positions,
                                             count=options.section_count,
                                             velocity=u_cell if u_location == "cell" else u_point,
-                                            velocity_location=u_location)
+                                            velocity_location=u_location, threads=threads)
             weighting = "flow" if u_location is not None else "area"
             m["mixing_length"] = mixing.mixing_length(profile, target=options.mixing_target,
                                                       weighting=weighting)
@@ -306,16 +310,19 @@ class StepRunner:
         Where the series keeps its meshes (give one to reuse meshes an earlier run built).
     series : Series, optional
         The series already open at ``path`` (saves discovering it again).
+    threads : int
+        Threads of this process for the steps' mesh work (see :func:`analyse_step`).
 
     Notes
     -----
     Picklable: a runner sent to another process takes its path, options,
-    cache and an empty mesh pool, and opens the series there on its first step.
+    cache and an empty mesh pool, and opens the series there on its first step,
+    on one thread (a Dask worker runs its own threads side by side).
     A forked process inherits the open series and the kept meshes as they are.
     """
 
     def __init__(self, path, options, *, cache=None, contour_dir: str | None = None, keep=(),
-                 mesh_pool=None, series=None):
+                 mesh_pool=None, series=None, threads: int = 1):
         from ..io import MeshPool
 
         self.path = os.fspath(path)
@@ -326,11 +333,13 @@ class StepRunner:
         self.mesh_pool = series.mesh_pool if series is not None else (mesh_pool or MeshPool())
         self._series = series
         self._reported: set = set()  # meshes whose quality this runner has warned about
+        self.threads = int(threads)
 
     def __getstate__(self):
         state = self.__dict__.copy()
         state["_series"] = None
         state["_reported"] = set()
+        state["threads"] = 1
         return state
 
     @property
@@ -386,7 +395,7 @@ class StepRunner:
             try:
                 step = series.read(index)
                 result = analyse_step(step, self.options, contour_dir=self.contour_dir,
-                                      reported_meshes=self._reported)
+                                      reported_meshes=self._reported, threads=self.threads)
             except STEP_ERRORS as err:
                 err = err.at(info.where)
                 if self.options.strict:

@@ -1,0 +1,65 @@
+"""Threads for array work: how many one process may use, and a map over them in order.
+
+numpy releases the interpreter lock inside its loops over arrays, so independent pieces of
+mesh work (the planes of a section operator, for instance) run side by side on threads of one
+process, each on its own arrays. Results come back in the order of the inputs, whatever thread
+made them, so a run's tables are the same bit for bit on any number of threads.
+"""
+
+from __future__ import annotations
+
+import os
+from concurrent.futures import ThreadPoolExecutor
+
+from ..errors import OptionError
+
+__all__ = ["THREADS_VARIABLE", "thread_count", "check_threads", "ordered_map"]
+
+#: environment variable that caps the threads of one process (as OMP_NUM_THREADS does for OpenMP)
+THREADS_VARIABLE = "PHASEGAUGE_THREADS"
+
+#: threads a process takes at most by default (more gave little on the sizes measured)
+_DEFAULT_MOST = 8
+
+
+def check_threads(threads) -> int:
+    """``threads`` (an int, or a string of digits) as a positive int, or :class:`OptionError`."""
+    text = str(threads).strip()
+    if isinstance(threads, bool) or not text.isdigit() or int(text) < 1:
+        raise OptionError(f"threads must be a whole number of at least 1, found {threads!r}",
+                          fix="for example --threads 4")
+    return int(text)
+
+
+def thread_count(processes: int = 1) -> int:
+    """Threads each of ``processes`` side-by-side processes of this run may use.
+
+    The CPUs this process may run on (its affinity where the system tells it, capped at 8),
+    or ``PHASEGAUGE_THREADS`` when set, shared among the processes: at least 1.
+    """
+    given = os.environ.get(THREADS_VARIABLE, "").strip()
+    if given:
+        try:
+            total = check_threads(given)
+        except OptionError:
+            raise OptionError(f"{THREADS_VARIABLE} must be a whole number of at least 1, found {given!r}",
+                              fix=f"set {THREADS_VARIABLE}=4, for example, or unset it") from None
+    else:
+        cpus = len(os.sched_getaffinity(0)) if hasattr(os, "sched_getaffinity") else (os.cpu_count() or 1)
+        total = min(cpus, _DEFAULT_MOST)
+    return max(1, total // max(1, int(processes)))
+
+
+def ordered_map(function, items, *, threads: int = 1):
+    """``function(item)`` for every item, yielded in the order of ``items``.
+
+    On up to ``threads`` threads (1: in this thread, one after another). The threads end before
+    the last result is yielded, or when the caller stops reading. ``function`` must not write
+    to anything another call reads.
+    """
+    items = list(items)
+    if threads <= 1 or len(items) <= 1:
+        yield from map(function, items)
+        return
+    with ThreadPoolExecutor(min(threads, len(items)), thread_name_prefix="phasegauge") as pool:
+        yield from pool.map(function, items)

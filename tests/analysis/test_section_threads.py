@@ -1,0 +1,72 @@
+"""The section operator cut on several threads: the same arrays as on one, and the same profile as
+pyvista's plane slice (the outside reference of tests/analysis/test_sections_operator.py)."""
+
+import dataclasses
+
+import numpy as np
+import pytest
+import pyvista
+
+from phasegauge.analysis._cross_sections import cross_sections
+from phasegauge.analysis._section_planes import _build_sections
+from phasegauge.meshgen import delaunay_mesh, grid_mesh, to_meshio
+from phasegauge.model._threads import ordered_map
+
+pyvista.OFF_SCREEN = True
+
+
+def _arrays(sections):
+    """Every array of an operator, flattened to bytes in field order."""
+    out = []
+    for f in dataclasses.fields(sections):
+        value = getattr(sections, f.name)
+        parts = value if isinstance(value, tuple) else (value,)
+        for part in parts:
+            if isinstance(part, np.ndarray):
+                out.append((f.name, part.dtype.str, part.shape, part.tobytes()))
+    return out
+
+
+@pytest.mark.parametrize("kind", ["hexahedron", "mixed", "tetra", "quad"])
+def test_operator_is_the_same_on_any_number_of_threads(kind):
+    if kind == "quad":
+        mesh = grid_mesh((13, 9), kind="quad", jitter=0.3, seed=3)
+    else:
+        # jitter 0.3 bends the quad faces: hexahedra and wedges split about added centres
+        mesh = grid_mesh((7, 5, 4), kind=kind, jitter=0.3, seed=3)
+    lo, hi = mesh.bounds[:, 0]
+    positions = lo + (np.arange(9) + 0.5) * (hi - lo) / 9
+    positions[3] = np.sort(mesh.coordinates[:, 0])[mesh.n_points // 2]  # through a mesh point
+    lower = np.zeros(positions.size, dtype=bool)
+    locations = frozenset({"point", "cell"})
+    one = _build_sections(mesh, 0, positions, lower, locations, threads=1)
+    for threads in (2, 3, 8):
+        many = _build_sections(mesh, 0, positions, lower, locations, threads=threads)
+        assert _arrays(many) == _arrays(one)
+
+
+def test_threaded_profile_matches_pyvista_slice():
+    # pyvista's vtkCutter slice integrated by integrate_data: the section's area and the mean of c
+    mesh = delaunay_mesh(400, dim=3, seed=11)
+    X = mesh.coordinates
+    c = 0.5 + 0.4 * np.sin(3 * X[:, 1] + 1) * np.cos(2 * X[:, 2] + X[:, 0])
+    positions = [0.2, 0.35, 0.5, 0.65, 0.8]
+    profile = cross_sections(mesh, c, axis="x", positions=positions, threads=3)
+    grid = pyvista.from_meshio(to_meshio(mesh, point_data={"c": c}))
+    for row, p in zip(profile.itertuples(), positions):
+        cut = grid.slice(normal="x", origin=(p, 0.5, 0.5)).integrate_data()
+        area = float(cut.cell_data["Area"][0])
+        assert row.area == pytest.approx(area, rel=1e-10)
+        assert row.mean_area_weighted == pytest.approx(float(cut.point_data["c"][0]) / area, rel=1e-9)
+
+
+def test_ordered_map_keeps_order_and_raises_the_first_error():
+    assert list(ordered_map(lambda x: x * x, range(20), threads=4)) == [x * x for x in range(20)]
+
+    def fails(x):
+        if x == 3:
+            raise ValueError("three")
+        return x
+
+    with pytest.raises(ValueError, match="three"):
+        list(ordered_map(fails, range(8), threads=3))
