@@ -1,4 +1,4 @@
-"""Repeated cells found through a 64-bit mix of the sorted corner rows, against numpy's unique rows."""
+"""Repeated cells found by grouping the sorted corner rows, against numpy's unique rows."""
 
 import numpy as np
 import pytest

@@ -122,22 +122,13 @@ def _mixed(values: np.ndarray) -> np.ndarray:
 
 
 def _repeated_rows(rows: np.ndarray) -> int:
-    """Rows (sorted corner sets) equal to an earlier row, exactly.
+    """Rows (sorted corner sets) equal to an earlier row, exactly: grouped column by column.
 
-    A 64-bit mix of each row first (one sort of n integers): rows with distinct mixes differ, so
-    only the rows whose mix repeats (none on a valid mesh, a few by chance) are grouped column by
-    column. Grouping all rows by their k columns cost about 1 s on 1M hexahedra.
+    :func:`_repeated_sets` hands over only the rows whose corner mix repeats (none on a valid
+    mesh, a few by chance, all of them on a mesh written twice).
     """
-    mix = np.zeros(rows.shape[0], dtype=np.uint64)
-    with np.errstate(over="ignore"):
-        for j in range(rows.shape[1]):
-            mix *= np.uint64(0x9E3779B97F4A7C15)
-            mix += rows[:, j].astype(np.uint64)
-            mix ^= mix >> np.uint64(29)
-    again = _repeating(mix)
-    if again is None:
+    if rows.shape[0] < 2:
         return 0
-    rows = rows[again]
     _, starts = group_columns([rows[:, j] for j in range(rows.shape[1])])
     return rows.shape[0] - int(starts.size)
 
