@@ -70,3 +70,17 @@ def test_ordered_map_keeps_order_and_raises_the_first_error():
 
     with pytest.raises(ValueError, match="three"):
         list(ordered_map(fails, range(8), threads=3))
+
+
+def test_prepared_mesh_has_the_same_geometry_and_faces():
+    # the geometry and the face topology made side by side on two threads, against one thread
+    from phasegauge.model._threads import prepare_mesh
+
+    one, two = (grid_mesh((9, 7, 6), kind="mixed", jitter=0.3, seed=5) for _ in range(2))
+    prepare_mesh(two, threads=2)
+    assert "_geometry" in two.__dict__ and "_face_topology" in two.__dict__
+    np.testing.assert_array_equal(one.signed_measures, two.signed_measures)
+    np.testing.assert_array_equal(one.cell_centroids, two.cell_centroids)
+    np.testing.assert_array_equal(one.face_pairs, two.face_pairs)
+    for a, b in zip(one.boundary_faces, two.boundary_faces):
+        np.testing.assert_array_equal(a, b)

@@ -23,6 +23,7 @@ from ..model.fields import vector_field
 from ..model.indicator import make_indicator
 from ..model.outline import MeshOutline
 from ..model._overlaps import overlap_problem
+from ..model._threads import prepare_mesh
 from ._sampling import sample_step
 
 __all__ = ["StepResult", "StepRunner", "analyse_step", "run_step", "STEP_ERRORS"]
@@ -163,13 +164,14 @@ def analyse_step(step, options, *, contour_dir: str | None = None, reported_mesh
     reported_meshes : set of str, optional
         Signatures of meshes whose quality was already warned about (updated).
     threads : int
-        Threads for the mesh work that splits into independent parts (the planes of a section
-        operator); the result is the same bit for bit on any number.
+        Threads for the mesh work that splits into independent parts (a new mesh's geometry and
+        faces, the planes of a section operator); the result is the same bit for bit on any number.
     """
     from ..analysis import conservation, droplets as droplets_mod, interface, mixing
 
     step, flat = flatten_step(step, options)
     mesh = step.mesh
+    prepare_mesh(mesh, threads=threads)  # the first step of a mesh: its geometry and faces side by side
     ind = make_indicator(mesh, step.fields, options.field, range=options.range,
                          phase=options.phase, where=step.info.where, field_location=options.field_location)
     if ind.nonfinite == ind.cell.size or not np.isfinite(ind.cell).any():
