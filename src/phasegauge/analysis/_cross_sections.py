@@ -30,6 +30,7 @@ from ..model.axes import AXIS_INDEX, AXIS_NAMES
 from ..model.corners import corner_sum
 from ..model.fields import field_location
 from ..model.mesh import Mesh
+from ..model._threads import ordered_map
 from ._section_planes import _sections
 from ._sums import dot
 
@@ -207,7 +208,8 @@ def cross_sections(mesh: Mesh, c_point_or_indicator, *, axis="x", positions=None
         through it).
     threads : int
         Threads that cut the planes when the mesh's section operator is built (once per mesh,
-        axis and positions); the profile is the same bit for bit on any number.
+        axis and positions) and that integrate them; the profile is the same bit for bit on any
+        number.
 
     Returns
     -------
@@ -306,8 +308,8 @@ def cross_sections(mesh: Mesh, c_point_or_indicator, *, axis="x", positions=None
             return [values[sections.corners[p][:, i].astype(np.intp)] for i in range(k)]
         return [values[sections.parent[p].astype(np.intp)] - offset] * k
 
-    rows, moments = [], []
-    for p, position in enumerate(positions):
+    def plane(p):
+        """The profile row of plane ``p`` and the moments its inflow figure reads."""
         w = sections.measures[p]
         cv = on_corners(0, p)
         un = None if u is None else on_corners(1, p)
@@ -318,7 +320,7 @@ def cross_sections(mesh: Mesh, c_point_or_indicator, *, axis="x", positions=None
             un = None if un is None else [v[good] for v in un]
         integrals = _section_integrals(w, cv, un)
         mean, intensity = _statistics(float(w.sum()), integrals[0], integrals[1], shift)
-        row = {"position": float(position), "area": float(sections.areas[p]), "mean_area_weighted": mean,
+        row = {"position": float(positions[p]), "area": float(sections.areas[p]), "mean_area_weighted": mean,
                "segregation_intensity": intensity, "weighting": "area"}
         used = (float(w.sum()),) + tuple(integrals[:2])
         if un is not None:
@@ -333,6 +335,11 @@ def cross_sections(mesh: Mesh, c_point_or_indicator, *, axis="x", positions=None
             else:  # no net flow through this plane: area weights
                 mean_f, intensity_f = mean, intensity
             row.update(mean_flow_weighted=mean_f, segregation_intensity_flow=intensity_f)
+        return row, used
+
+    # the planes side by side: each reads its own pieces, the rows come back in plane order
+    rows, moments = [], []
+    for row, used in ordered_map(plane, range(len(positions)), threads=threads):
         rows.append(row)
         moments.append(used)
     table = pd.DataFrame(rows, columns=list(PROFILE_COLUMNS))
