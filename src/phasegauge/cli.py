@@ -274,9 +274,11 @@ def _summary(result, out, quiet):
 @click.option("--resume", is_flag=True, help="Finish an interrupted run.")
 @click.option("--workers", "-j", type=int, default=None,
               help="Local worker processes (overrides the recipe); a campaign measures its runs side by side on them.")
+@click.option("--threads", type=int, default=None,
+              help="Threads of each process for mesh work (overrides the recipe).")
 @click.option("--strict", is_flag=True, default=None, help="Stop at a bad step instead of skipping it (overrides the recipe).")
 @click.option("--quiet", "-q", is_flag=True, help="No progress display.")
-def run(recipe, overwrite, resume, workers, strict, quiet):
+def run(recipe, overwrite, resume, workers, threads, strict, quiet):
     """Run a recipe file (TOML): a whole measure, compare or campaign run kept beside the case."""
     from .recipes import load_recipe, run_recipe
     from .report._files import output_transaction
@@ -287,8 +289,8 @@ def run(recipe, overwrite, resume, workers, strict, quiet):
         raise OptionError("is a folder, not a recipe file", where=recipe, fix="give the .toml file itself")
     loaded = load_recipe(recipe)
     with output_transaction(loaded["output"]["folder"]):
-        result = run_recipe(recipe, overwrite=overwrite or None, resume=resume, workers=workers, strict=strict or None,
-                            progress=None if not quiet else False)
+        result = run_recipe(recipe, overwrite=overwrite or None, resume=resume, workers=workers, threads=threads,
+                            strict=strict or None, progress=None if not quiet else False)
     _summary(result, loaded["output"]["folder"], quiet)
 
 
@@ -425,10 +427,13 @@ def samples(directory, only, overwrite, list_names):
 @click.option("--out", "-o", "out", required=True, help="Output folder.")
 @click.option("--overwrite", is_flag=True, help="Replace an existing output folder.")
 @click.option("--workers", "-j", type=int, default=1, show_default=True, help="Local worker processes.")
+@click.option("--threads", type=int, default=None,
+              help="Threads of each process for mesh work [default: the CPUs it may use, shared among the "
+                   "workers].")
 @click.option("--quiet", "-q", is_flag=True, help="No progress display.")
 def compare(path_a, path_b, field_a, field_b, range_a, range_b, phase_a, phase_b, velocity_a, velocity_b,
             label_a, label_b, level, time_tolerance, spacing, rising_bubble, reference_table, field_location,
-            sort_by_time, out, overwrite, workers, quiet):
+            sort_by_time, out, overwrite, workers, threads, quiet):
     """Compare two runs of the same case (for example diffuse versus sharp interface)."""
     from .run.compare import RunSpec, compare_runs
     from .model.indicator import parse_range
@@ -440,7 +445,8 @@ def compare(path_a, path_b, field_a, field_b, range_a, range_b, phase_a, phase_b
     with output_transaction(out):
         result = compare_runs(first, second, out=out, overwrite=overwrite, level=level,
                               time_tolerance=time_tolerance, spacing=spacing, reference_table=reference_table,
-                              rising_bubble=rising_bubble, workers=workers, progress=None if not quiet else False)
+                              rising_bubble=rising_bubble, workers=workers, threads=threads,
+                              progress=None if not quiet else False)
     if not quiet:
         click.echo(f"compared {len(result.pairs)} paired times; report: {os.path.join(out, 'report.html')}")
 
@@ -462,9 +468,12 @@ def compare(path_a, path_b, field_a, field_b, range_a, range_b, phase_a, phase_b
 @click.option("--out", "-o", "out", required=True, help="Output folder.")
 @click.option("--overwrite", is_flag=True, help="Replace an existing output folder.")
 @click.option("--workers", "-j", type=int, default=1, show_default=True, help="Local worker processes.")
+@click.option("--threads", type=int, default=None,
+              help="Threads of each process for mesh work [default: the CPUs it may use, shared among the "
+                   "workers].")
 @click.option("--quiet", "-q", is_flag=True, help="No progress display.")
 def convergence(fine, medium, coarse, field, value_range, phase, level, velocity, analyses, cell_sizes,
-                safety_factor, out, overwrite, workers, quiet):
+                safety_factor, out, overwrite, workers, threads, quiet):
     """Grid convergence of one case run on three meshes (Celik et al. 2008).
 
     FINE, MEDIUM and COARSE are each a series or the output folder of a
@@ -483,7 +492,7 @@ def convergence(fine, medium, coarse, field, value_range, phase, level, velocity
                                  analyses=tuple(a.strip() for a in analyses.split(",") if a.strip()))
     result = grid_convergence_run(fine, medium, coarse, options=options,
                                   cell_sizes=_floats(cell_sizes, "--cell-sizes", 3), safety_factor=safety_factor,
-                                  out=out, overwrite=overwrite, workers=workers,
+                                  out=out, overwrite=overwrite, workers=workers, threads=threads,
                                   progress=None if not quiet else False)
     if not quiet:
         sizes = ", ".join(f"{s.cell_size:.4g}" for s in result.sources)

@@ -124,7 +124,7 @@ COMPARE_SCHEMA = {
     "second": _INPUT,
     "compare": {"time_tolerance": (int, float), "spacing": (int, float), "level": (int, float),
                 "reference_table": str, "rising_bubble": bool},
-    "run": {"workers": int, "strict": bool},
+    "run": {"workers": int, "threads": int, "strict": bool},
     "output": {"folder": str, "overwrite": bool},
 }
 
@@ -417,10 +417,11 @@ def _point_options(validation: dict) -> dict:
     return {key: readers[key](path) for key, path in validation.items()}
 
 
-def run_recipe(path, *, overwrite=None, resume: bool = False, workers=None, progress=None, strict=None):
+def run_recipe(path, *, overwrite=None, resume: bool = False, workers=None, threads=None, progress=None,
+               strict=None):
     """Run a recipe file; returns the measure or compare result.
 
-    ``overwrite``, ``workers`` and ``strict`` override the recipe's entries when given.
+    ``overwrite``, ``workers``, ``threads`` and ``strict`` override the recipe's entries when given.
     """
     recipe = load_recipe(path)
     if strict is not None and recipe["kind"] != "compare":
@@ -433,6 +434,8 @@ def run_recipe(path, *, overwrite=None, resume: bool = False, workers=None, prog
             kwargs["overwrite"] = overwrite
         if workers is not None:
             kwargs["workers"] = workers
+        if threads is not None:
+            kwargs["threads"] = threads
         return measure(resume=resume, progress=progress, **kwargs)
     if recipe["kind"] == "campaign":
         from .run.campaign import run_campaign
@@ -442,7 +445,8 @@ def run_recipe(path, *, overwrite=None, resume: bool = False, workers=None, prog
         return run_campaign(recipe["runs"], kwargs["options"], out=kwargs["out"],
                             parameter=campaign.get("parameter", "parameter"), unit=campaign.get("unit", ""),
                             overwrite=kwargs["overwrite"] if overwrite is None else overwrite, resume=resume,
-                            workers=kwargs["workers"] if workers is None else workers, progress=progress,
+                            workers=kwargs["workers"] if workers is None else workers,
+                            threads=kwargs["threads"] if threads is None else threads, progress=progress,
                             contours=kwargs["contours"], snapshots=kwargs["snapshots"],
                             scheduler=kwargs["scheduler"], plot_format=kwargs["plot_format"],
                             keep_cache=kwargs["keep_cache"])
@@ -453,4 +457,6 @@ def run_recipe(path, *, overwrite=None, resume: bool = False, workers=None, prog
         kwargs["overwrite"] = overwrite
     if workers is not None:
         kwargs["workers"] = workers
+    if threads is not None:
+        kwargs["threads"] = threads
     return compare_runs(progress=progress, **kwargs)

@@ -305,3 +305,18 @@ def test_threads_give_the_same_tables_and_are_recorded(tmp_path):
         pd.testing.assert_frame_equal(one, three, check_exact=True)
     res = CliRunner().invoke(main, ["measure", listing, "-f", "alpha", "--threads", "0", "-o", str(tmp_path / "b")])
     assert res.exit_code == 2 and "threads must be a whole number of at least 1" in res.output
+
+
+def test_threads_are_checked_first_by_every_command(tmp_path):
+    """A wrong thread count is refused before any work, by each command that measures."""
+    listing = _moving_disc_series(str(tmp_path), steps=2)
+    for args in (["compare", listing, listing, "--field-a", "alpha", "--field-b", "alpha"],
+                 ["convergence", listing, listing, listing, "-f", "alpha"]):
+        res = CliRunner().invoke(main, args + ["--threads", "0", "-o", str(tmp_path / args[0])])
+        assert res.exit_code == 2 and "threads must be a whole number of at least 1" in res.output, res.output
+        assert not (tmp_path / args[0]).exists()
+    recipe = tmp_path / "r.toml"
+    recipe.write_text(f'[input]\npath = "{listing}"\nfield = "alpha"\n[output]\nfolder = "{tmp_path / "r"}"\n')
+    res = CliRunner().invoke(main, ["run", str(recipe), "--threads", "2", "--quiet"])
+    assert res.exit_code == 0, res.output
+    assert json.loads((tmp_path / "r" / "manifest.json").read_text())["execution"]["threads"] == 2

@@ -82,8 +82,8 @@ def _finished(folder: str):
 
 
 def run_campaign(runs: list, options, *, out, parameter: str = "parameter", unit: str = "",
-                 overwrite: bool = False, resume: bool = False, workers: int = 1, progress=False,
-                 contours: bool = True, snapshots: int = 4, scheduler: str | None = None,
+                 overwrite: bool = False, resume: bool = False, workers: int = 1, threads: int | None = None,
+                 progress=False, contours: bool = True, snapshots: int = 4, scheduler: str | None = None,
                  plot_format: str = "png", keep_cache: bool = False) -> CampaignResult:
     """Measure every run of a campaign and tabulate its summary figures against the parameter.
 
@@ -107,6 +107,9 @@ def run_campaign(runs: list, options, *, out, parameter: str = "parameter", unit
         time; when fewer runs are to measure than workers, each run gets
         ``workers // runs`` processes for its steps (fixed at the start). ``workers=1`` measures the runs
         one after another in this process. The tables do not depend on it.
+    threads : int, optional
+        Threads of each process (as for ``measure``); by default the CPUs shared among every
+        process measuring at once.
     progress : bool or None
         As for ``measure``; the line names the run (or, side by side, the runs
         being measured).
@@ -130,6 +133,7 @@ def run_campaign(runs: list, options, *, out, parameter: str = "parameter", unit
         in their folders for ``resume``.
     """
     from ..report._files import output_transaction, prepare_output_folder
+    from ..model._threads import check_threads
     from .options import check_workers
 
     if not runs:
@@ -143,6 +147,8 @@ def run_campaign(runs: list, options, *, out, parameter: str = "parameter", unit
             raise OptionError(f"every run needs a finite number as parameter, found {value!r}",
                               fix="write parameter = 0.5 in each [[runs]] table")
     workers = check_workers(workers)
+    if threads is not None:
+        check_threads(threads)
     started = time.time()
     key = hashlib.sha256(json.dumps([[os.path.abspath(r["path"]), float(r["parameter"]), label]
                                      for r, label in zip(runs, labels)]).encode()
@@ -157,7 +163,7 @@ def run_campaign(runs: list, options, *, out, parameter: str = "parameter", unit
         jobs = [_RunJob(k, labels[k], runs[k]["path"], folders[k], resume and os.path.isdir(folders[k]))
                 for k in todo]
         settings = dict(options=options, contours=contours, snapshots=snapshots, scheduler=scheduler,
-                        plot_format=plot_format, keep_cache=keep_cache)
+                        plot_format=plot_format, keep_cache=keep_cache, threads=threads)
         results = [None] * len(runs)
         if workers > 1 and len(jobs) > 1 and not scheduler:
             measured = _side_by_side(jobs, settings, workers=workers, progress=progress)
@@ -223,7 +229,8 @@ def _side_by_side(jobs, settings, *, workers, progress) -> dict:
     side = min(workers, len(jobs))
     inner = max(1, workers // len(jobs))
     # the CPUs shared among every process measuring at once, as a single run shares them
-    settings = {**settings, "threads": thread_count(side * inner)}
+    if settings["threads"] is None:
+        settings = {**settings, "threads": thread_count(side * inner)}
     queue = list(jobs)
     running = {}  # connection -> (job, process)
     measured = {}

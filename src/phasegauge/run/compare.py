@@ -68,7 +68,7 @@ class CompareResult:
 def compare_runs(first: RunSpec, second: RunSpec, *, out=None, overwrite: bool = False, level: float = 0.5,
                  time_tolerance: float | None = None, spacing: float | None = None,
                  reference_table: str | None = None, rising_bubble: bool = False, workers: int = 1,
-                 progress=False, snapshots: int = 3) -> CompareResult:
+                 threads: int | None = None, progress=False, snapshots: int = 3) -> CompareResult:
     """Compare two runs.
 
     Parameters
@@ -90,6 +90,8 @@ def compare_runs(first: RunSpec, second: RunSpec, *, out=None, overwrite: bool =
         Check the first run against the rising-bubble benchmark, case 1.
     workers : int
         Local worker processes for measuring each run.
+    threads : int, optional
+        Threads of each process (as for ``measure``).
 
     Notes
     -----
@@ -107,11 +109,12 @@ def compare_runs(first: RunSpec, second: RunSpec, *, out=None, overwrite: bool =
     with output_transaction(out):
         return _compare_runs(first, second, out=out, overwrite=overwrite, level=level,
                              time_tolerance=time_tolerance, spacing=spacing, reference_table=reference_table,
-                             rising_bubble=rising_bubble, workers=workers, progress=progress, snapshots=snapshots)
+                             rising_bubble=rising_bubble, workers=workers, threads=threads, progress=progress,
+                             snapshots=snapshots)
 
 
 def _compare_runs(first, second, *, out, overwrite, level, time_tolerance, spacing, reference_table,
-                  rising_bubble, workers, progress, snapshots):
+                  rising_bubble, workers, threads, progress, snapshots):
     import pandas as pd
 
     from ..analysis import compare as cmp
@@ -122,6 +125,10 @@ def _compare_runs(first, second, *, out, overwrite, level, time_tolerance, spaci
 
     if not 0 < level < 1:
         raise OptionError(f"level must lie strictly between 0 and 1, found {level}", fix="usually 0.5")
+    if threads is not None:
+        from ..model._threads import check_threads
+
+        check_threads(threads)
     started = time.time()
     labels = (first.label or "first", second.label or "second")
 
@@ -150,7 +157,8 @@ def _compare_runs(first, second, *, out, overwrite, level, time_tolerance, spaci
         options = MeasureOptions(field=spec.field, range=spec.range, phase=spec.phase, level=level,
                                  velocity=spec.velocity, field_location=spec.field_location,
                                  sort_by_time=spec.sort_by_time)
-        res = measure(spec.path, options=plan.options(options, k), workers=workers, progress=progress, snapshots=0,
+        res = measure(spec.path, options=plan.options(options, k), workers=workers, threads=threads, progress=progress,
+                      snapshots=0,
                       progress_label=f"steps of {labels[k]}")
         res.options = options
         runs.append(res)
@@ -247,4 +255,4 @@ def compare_arguments(recipe: dict) -> dict:
                 overwrite=recipe["output"].get("overwrite", False), level=c.get("level", 0.5),
                 time_tolerance=c.get("time_tolerance"), spacing=c.get("spacing"),
                 reference_table=c.get("reference_table"), rising_bubble=c.get("rising_bubble", False),
-                workers=run.get("workers", 1))
+                workers=run.get("workers", 1), threads=run.get("threads"))

@@ -120,7 +120,7 @@ def _mesh_size(source: ConvergenceSource, known: bool) -> None:
 
 
 def grid_convergence_run(fine, medium, coarse, *, options=None, cell_sizes=None, safety_factor: float = 1.25,
-                         out=None, overwrite: bool = False, workers: int = 1,
+                         out=None, overwrite: bool = False, workers: int = 1, threads: int | None = None,
                          progress: bool | None = False) -> ConvergenceResult:
     """Grid convergence of every per-step quantity of one case run on three meshes.
 
@@ -140,6 +140,8 @@ def grid_convergence_run(fine, medium, coarse, *, options=None, cell_sizes=None,
         refused when it exists unless ``overwrite``.
     workers : int
         Local worker processes for measuring series.
+    threads : int, optional
+        Threads of each process (as for ``measure``).
     progress : bool or None
 
     Returns
@@ -154,10 +156,10 @@ def grid_convergence_run(fine, medium, coarse, *, options=None, cell_sizes=None,
 
     with output_transaction(out):
         return _run(fine, medium, coarse, options=options, cell_sizes=cell_sizes, safety_factor=safety_factor,
-                    out=out, overwrite=overwrite, workers=workers, progress=progress)
+                    out=out, overwrite=overwrite, workers=workers, threads=threads, progress=progress)
 
 
-def _run(fine, medium, coarse, *, options, cell_sizes, safety_factor, out, overwrite, workers, progress):
+def _run(fine, medium, coarse, *, options, cell_sizes, safety_factor, out, overwrite, workers, threads, progress):
     from ..analysis.convergence import convergence_table, droplet_integrals, representative_cell_size
     from .options import check_workers
 
@@ -167,6 +169,10 @@ def _run(fine, medium, coarse, *, options, cell_sizes, safety_factor, out, overw
         raise OptionError(f"safety factor must be at least 1, found {safety_factor!r}",
                           fix="use 1.25 for three meshes (Celik et al. 2008)")
     check_workers(workers)
+    if threads is not None:
+        from ..model._threads import check_threads
+
+        check_threads(threads)
     sources = []
     for name, path in zip(MESH_NAMES, (fine, medium, coarse)):
         path = os.fspath(path)
@@ -221,7 +227,7 @@ def _run(fine, medium, coarse, *, options, cell_sizes, safety_factor, out, overw
 
     for source in sources:
         if source.kind == "series":
-            res = measure(source.path, options=options, workers=workers, progress=progress, snapshots=0,
+            res = measure(source.path, options=options, workers=workers, threads=threads, progress=progress, snapshots=0,
                           contours=False)
             source.steps, source.droplets = res.steps, res.droplets
     tables = []
