@@ -84,3 +84,22 @@ def test_prepared_mesh_has_the_same_geometry_and_faces():
     np.testing.assert_array_equal(one.face_pairs, two.face_pairs)
     for a, b in zip(one.boundary_faces, two.boundary_faces):
         np.testing.assert_array_equal(a, b)
+
+
+@pytest.mark.parametrize("kind", ["hexahedron", "mixed"])
+def test_split_plan_is_the_same_on_any_number_of_threads(kind, monkeypatch):
+    # chunks of a few cells, so that the threads share faces across chunks
+    from phasegauge.model import simplices
+
+    monkeypatch.setattr(simplices, "_CHUNK", 7)
+    plans = []
+    for threads in (1, 2, 3):
+        mesh = grid_mesh((8, 6, 5), kind=kind, jitter=0.3, seed=9)
+        plans.append(simplices._split_plan(mesh, threads=threads))
+    assert any(p is not None and p.coned.any() for p in plans[0])  # some cells split about centres
+    for plan in plans[1:]:
+        for a, b in zip(plans[0], plan):
+            assert (a is None) == (b is None)
+            if a is not None:
+                np.testing.assert_array_equal(a.coned, b.coned)
+                np.testing.assert_array_equal(a.centred, b.centred)

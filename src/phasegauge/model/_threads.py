@@ -65,13 +65,16 @@ def ordered_map(function, items, *, threads: int = 1):
         yield from pool.map(function, items)
 
 
-def prepare_mesh(mesh, *, threads: int = 1) -> None:
-    """Make a mesh's cell geometry and face topology side by side, on two threads, if neither is made.
+def prepare_mesh(mesh, *, threads: int = 1, split: bool = True) -> None:
+    """Make a new mesh's cell geometry and face topology side by side, then its split plan.
 
     The first step of a run needs both (the measures for every integral, the faces for the mesh
     check and the droplets' neighbours); neither reads the other, so on two free cores the pair
-    takes about the longer one's time. A regular grid numbers its faces by position (no grouping),
-    and one thread makes them when they are first read, as before.
+    takes about the longer one's time. With ``split`` (an analysis will split cells: the
+    interface, the sections), the plan of which hexahedra, wedges and pyramids are split about
+    added centres follows on all the threads. A regular grid numbers its faces by position (no
+    grouping), and one thread makes what it needs when it is first read, as before; so does a
+    mesh whose geometry or faces are made already.
     """
     if threads < 2 or mesh.regular_grid is not None:
         return
@@ -81,3 +84,7 @@ def prepare_mesh(mesh, *, threads: int = 1) -> None:
     mesh.coordinates  # noqa: B018  (read by both: made here first)
     for _ in ordered_map(lambda name: getattr(mesh, name), ("_face_topology", "_geometry"), threads=2):
         pass
+    if split and mesh.dimension == 3:
+        from .simplices import _split_plan
+
+        _split_plan(mesh, threads=threads)

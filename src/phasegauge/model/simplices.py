@@ -44,6 +44,7 @@ from .corners import corner_mean
 from ._grouping import group_columns, group_numbers, sort_small_rows
 from ._split_tables import CONED_TYPES, TABLE, TABLE_DIAGONALS
 from .cells import FACES
+from ._threads import ordered_map
 from .mesh import Mesh
 
 __all__ = ["SimplexSplit", "split_cells", "needs_centres", "grid_corner_steps", "simplex_measures", "clip_simplices"]
@@ -143,12 +144,15 @@ class _ConedCells:
     centred: np.ndarray  # (n, number of quad faces) bool
 
 
-def _split_plan(mesh: Mesh) -> list:
+def _split_plan(mesh: Mesh, *, threads: int = 1) -> list:
     """Per block, None (every cell takes the table) or its :class:`_ConedCells` (cached per mesh).
 
     A quad face gets a centre when it is bent (seen so from either side) or when the
     two cells sharing it cut it along different diagonals; a cell with such a face is
-    coned. Blocks of other types: None.
+    coned. Blocks of other types: None. ``threads``: threads that go through the cells
+    when the plan is made (chunks of cells side by side; the plan is the same on any number:
+    each chunk only marks faces and writes its own diagonals, and whichever side's diagonal a
+    shared face keeps, the other side's differs exactly when the two sides differ).
     """
 
     def compute():
@@ -164,28 +168,30 @@ def _split_plan(mesh: Mesh) -> list:
         last = np.full(n_faces, -1, dtype=np.int64)
         n_points = np.int64(max(mesh.n_points, 1))
         columns = [np.ascontiguousarray(mesh.coordinates[:, i]) for i in range(3)]
-        for kind, block, ids in zip(kinds, mesh.blocks, numbers):
-            if kind not in CONED_TYPES:
-                continue
-            positions = _quad_positions(kind)
-            conn = block.connectivity
-            for lo in range(0, len(block), _CHUNK):  # in chunks: the temporaries stay in cache
-                part = conn[lo:lo + _CHUNK]
-                corners = [[x[part[:, j]] for x in columns] for j in range(part.shape[1])]
-                flat = _flat_faces(kind, corners)
-                keys = _diagonal_keys(kind, part, n_points)
-                for q, j in enumerate(positions):
-                    face = ids[lo:lo + _CHUNK, j]
-                    centred[face[~flat[:, q]]] = True
-                    last[face] = keys[:, q]
-        for kind, block, ids in zip(kinds, mesh.blocks, numbers):
-            if kind in CONED_TYPES:  # a face whose other side wrote another diagonal
-                positions = _quad_positions(kind)
-                for lo in range(0, len(block), _CHUNK):
-                    keys = _diagonal_keys(kind, block.connectivity[lo:lo + _CHUNK], n_points)
-                    for q, j in enumerate(positions):
-                        face = ids[lo:lo + _CHUNK, j]
-                        centred[face[last[face] != keys[:, q]]] = True
+        chunks = [(kind, block, ids, lo) for kind, block, ids in zip(kinds, mesh.blocks, numbers)
+                  if kind in CONED_TYPES for lo in range(0, len(block), _CHUNK)]  # temporaries stay in cache
+
+        def bent_faces_and_diagonals(chunk):
+            kind, block, ids, lo = chunk
+            part = block.connectivity[lo:lo + _CHUNK]
+            corners = [[x[part[:, j]] for x in columns] for j in range(part.shape[1])]
+            flat = _flat_faces(kind, corners)
+            keys = _diagonal_keys(kind, part, n_points)
+            for q, j in enumerate(_quad_positions(kind)):
+                face = ids[lo:lo + _CHUNK, j]
+                centred[face[~flat[:, q]]] = True
+                last[face] = keys[:, q]
+
+        def cut_two_ways(chunk):  # a face whose other side wrote another diagonal
+            kind, block, ids, lo = chunk
+            keys = _diagonal_keys(kind, block.connectivity[lo:lo + _CHUNK], n_points)
+            for q, j in enumerate(_quad_positions(kind)):
+                face = ids[lo:lo + _CHUNK, j]
+                centred[face[last[face] != keys[:, q]]] = True
+
+        for work in (bent_faces_and_diagonals, cut_two_ways):  # the second pass reads what the first wrote
+            for _ in ordered_map(work, chunks, threads=threads):
+                pass
         del last
         out = []
         for kind, ids in zip(kinds, numbers):

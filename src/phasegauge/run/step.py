@@ -171,7 +171,9 @@ def analyse_step(step, options, *, contour_dir: str | None = None, reported_mesh
 
     step, flat = flatten_step(step, options)
     mesh = step.mesh
-    prepare_mesh(mesh, threads=threads)  # the first step of a mesh: its geometry and faces side by side
+    # the first step of a mesh: its geometry and faces side by side, then the split plan
+    prepare_mesh(mesh, threads=threads, split=bool({"interface", "droplets"} & set(options.analyses))
+                 or options.section_axis is not None)
     ind = make_indicator(mesh, step.fields, options.field, range=options.range,
                          phase=options.phase, where=step.info.where, field_location=options.field_location)
     if ind.nonfinite == ind.cell.size or not np.isfinite(ind.cell).any():
