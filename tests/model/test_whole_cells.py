@@ -116,3 +116,25 @@ def test_pieces_in_any_order():
     np.testing.assert_array_equal(low, [[0, 0, 0], [0, 0, 0]])
     np.testing.assert_array_equal(high, [[1, 1, 1], [6, 6, 6]])
     assert view.face_pairs.tolist() == [[0, 1]]
+
+
+def test_whole_cell_means_by_ranges_equal_bincount(monkeypatch):
+    """Pieces whole cell after whole cell are summed by ranges, in chunks (here of a few pieces, so
+    cells with no pieces fall at chunk ends too): the same sums as ``numpy.bincount`` [lib]."""
+    from phasegauge.model import _whole_cells
+
+    monkeypatch.setattr(_whole_cells, "_CHUNK", 3)
+    rng = np.random.default_rng(1)
+    for trial in range(60):
+        counts = rng.integers(0, 4, int(rng.integers(1, 30)))
+        counts[0] = max(counts[0], 1)
+        if trial % 2:
+            counts[-1] = 0
+        parents = np.repeat(np.arange(counts.size), counts)
+        values, weights = rng.random(parents.size), rng.random(parents.size)
+        starts = np.searchsorted(parents, np.arange(counts.size + 1))
+        expected = np.bincount(parents, weights=values * weights, minlength=counts.size)
+        np.testing.assert_allclose(_whole_cells._ordered_sums(starts, values, counts.size, weights), expected,
+                                   rtol=1e-12)
+        np.testing.assert_allclose(_whole_cells._whole_sums(parents, values, counts.size, weights), expected,
+                                   rtol=1e-12)

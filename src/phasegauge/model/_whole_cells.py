@@ -76,19 +76,43 @@ def _whole_sums(parents: np.ndarray, values: np.ndarray, n: int, weights: np.nda
     return out[:, 0] if flat else out
 
 
+def _ordered_sums(starts: np.ndarray, values: np.ndarray, n: int, weights: np.ndarray) -> np.ndarray:
+    """As :func:`_whole_sums` for pieces that come whole cell after whole cell (whole cell w's pieces
+    ``starts[w]:starts[w + 1]``): one ``numpy.add.reduceat`` per chunk of whole cells."""
+    flat = values.ndim == 1
+    cols = values[:, None] if flat else values
+    out = np.zeros((n, cols.shape[1]))
+    step = max(1, int(_CHUNK * n / max(int(starts[-1]), 1)))  # about _CHUNK pieces a chunk
+    for w0 in range(0, n, step):
+        w1 = min(w0 + step, n)
+        lo, hi = int(starts[w0]), int(starts[w1])
+        if hi == lo:
+            continue
+        local = starts[w0:w1] - lo
+        has = local < hi - lo  # reduceat reads past the end for a trailing cell with no pieces
+        has[:-1] &= local[1:] > local[:-1]  # and one element for a cell with none
+        has[-1] &= hi > int(starts[w1 - 1])
+        part = cols[lo:hi] * weights[lo:hi, None]
+        out[w0:w1][has] = np.add.reduceat(part, local[has], axis=0)
+    return out[:, 0] if flat else out
+
+
 def _whole_pairs(mesh, parents: np.ndarray, n: int) -> np.ndarray:
     """Pairs (a, b), a < b, of whole cells whose pieces share a face, sorted; int64 (k, 2)."""
     table = kept_neighbours(mesh)
     keys = []
     if table is not None:  # the reader's split (or a table built before): row by row, column by column
         for lo in range(0, table.shape[0], _CHUNK):
-            rows = parents[lo:lo + _CHUNK].astype(np.int64)
+            rows = parents[lo:lo + _CHUNK]
             for j in range(table.shape[1]):
                 nb = table[lo:lo + _CHUNK, j]
-                ok = nb >= 0
-                a, b = rows[ok], parents[nb[ok]].astype(np.int64)
-                keep = a < b  # each face is in both of its pieces' rows: the one from the lower whole cell
-                keys.append(a[keep] * n + b[keep])
+                other = np.take(parents, nb)  # -1 (no neighbour) reads the last piece's: dropped below
+                # each face is in both of its pieces' rows: kept from the lower whole cell's
+                keep = (rows < other) & (nb >= 0)
+                key = rows[keep].astype(np.int64)
+                key *= n
+                key += other[keep]
+                keys.append(key)
     else:
         pairs = mesh.face_pairs
         for lo in range(0, pairs.shape[0], _CHUNK):
@@ -257,7 +281,10 @@ class WholeCells:
             NaN where a piece's value is NaN, and for a number with no pieces.
         """
         values = np.asarray(values, dtype=np.float64)
-        sums = _whole_sums(self.cell_parents_of_pieces, values, self.n_cells, self.piece_measures)
+        if self._piece_order is None:  # pieces whole cell after whole cell (a polyhedral split)
+            sums = _ordered_sums(self._piece_starts, values, self.n_cells, self.piece_measures)
+        else:
+            sums = _whole_sums(self.cell_parents_of_pieces, values, self.n_cells, self.piece_measures)
         with np.errstate(invalid="ignore", divide="ignore"):
             measure = self.cell_measures if values.ndim == 1 else self.cell_measures[:, None]
             return np.where(measure > 0, sums / measure, np.nan)
