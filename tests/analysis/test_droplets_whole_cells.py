@@ -234,3 +234,19 @@ def test_tracking_reads_whole_cell_labels_and_piece_labels_alike(meshes):
                 tracker.add(k, float(k), split, found)
         droplets, events = tracker.result()
         assert droplets["track"].tolist() == [0, 0] and len(events) == 0
+
+
+def test_point_connectivity_joins_whole_cells_at_a_corner(meshes):
+    """Two blocks of cells touching along an edge only: two droplets through faces, one through points,
+    on the polyhedra as on their hexahedra (the face and cell centres of the split join no cells that
+    do not share a face)."""
+    hexa, split, _ = meshes["sheared"]
+    ijk = np.stack(np.unravel_index(np.arange(hexa.n_cells), (N, N, N), order="F"), axis=1)
+    inside = (np.all((ijk[:, :2] >= 3) & (ijk[:, :2] < 6), axis=1)
+              | np.all((ijk[:, :2] >= 6) & (ijk[:, :2] < 9), axis=1)) & (ijk[:, 2] >= 4) & (ijk[:, 2] < 8)
+    c = inside.astype(float)
+    for connectivity, count in (("face", 2), ("point", 1)):
+        on_hex = label_droplets(hexa, c, connectivity=connectivity)
+        on_split = label_droplets(split, c[split.cell_parents], connectivity=connectivity)
+        assert on_hex.count == on_split.count == count
+        np.testing.assert_array_equal(on_split.labels, on_hex.labels)
