@@ -12,16 +12,16 @@ solver's cells, as a hexahedral mesh's droplet is a set of hexahedra), it runs o
 * ``face_neighbours``: the whole cells whose pieces share a face, read from the pieces' face
   topology (the reader's split neighbours when it gave them, else the mesh's face pairs);
 * :meth:`WholeCells.corner_boxes`: the extremes of whole cells' corners (of their pieces' corners:
-  the face and cell centres of a split lie inside the cell, so these are the cell's own), made for
+  the face and cell centres of a split are means of the cell's corners, so inside their box), made for
   the cells asked (a droplet's core cells), from an index of each whole cell's pieces;
 * :meth:`WholeCells.mean_of`: a per-piece value as the whole cell's mean, ``sum(V_piece * v_piece)
   / V_whole``: the cell integral ``v dV`` is unchanged.
 
 Whole cells are numbered as :attr:`Mesh.cell_parents` numbers them, ``0 .. cell_parents.max()``:
 a number with no pieces (a block split in part keeps its rows' numbers) has measure 0, no
-neighbour, centroid 0 (as ``whole_cell_centroids`` gives it) and NaN mean. The view holds arrays only (no reference back to the mesh),
-and exposes the few mesh attributes the droplet labelling reads (``n_cells`` counts whole cells,
-``cell_parents`` is None: the view keeps its centroids).
+neighbour, centroid 0 (as ``whole_cell_centroids`` gives it) and NaN mean. The view holds arrays
+only (no reference back to the mesh), and exposes the few mesh attributes the droplet labelling
+reads (``n_cells`` counts whole cells, ``cell_parents`` is None: the view keeps its centroids).
 """
 
 from __future__ import annotations
