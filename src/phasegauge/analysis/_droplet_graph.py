@@ -13,17 +13,30 @@ from scipy.sparse import csgraph
 from scipy.spatial import cKDTree
 
 from ..model._faces import SPLIT_FACES, pairs_as_neighbours
+from ..model._grouping import unique_ints
+from ..model._whole_cells import WholeCells
 from ..model.mesh import Mesh
 
 __all__ = ["periodic_pairs", "neighbour_table", "pieces", "join_periodic"]
 
 
-def periodic_pairs(mesh: Mesh, axis: int):
+def periodic_pairs(mesh: Mesh, axis: int, *, whole: bool = False):
     """Cell pairs across the periodic boundary of ``axis``: (low-side cell, high-side cell), period.
 
+    With ``whole`` (a split mesh, :attr:`Mesh.cell_parents`), the pairs of whole cells that the
+    pieces' pairs join, each once, sorted (numbers of :class:`~phasegauge.model._whole_cells.WholeCells`).
     Cached on the mesh (``mesh.memo``).
     """
+    if whole:
+        return mesh.memo(("droplet_periodic_pairs_whole", int(axis)), lambda: _whole_periodic_pairs(mesh, axis))
     return mesh.memo(("droplet_periodic_pairs", int(axis)), lambda: _find_periodic_pairs(mesh, axis))
+
+
+def _whole_periodic_pairs(mesh: Mesh, axis: int):
+    pairs, lo, period = periodic_pairs(mesh, axis)
+    n = int(mesh.cell_parents.max()) + 1 if mesh.cell_parents.size else 1
+    key = unique_ints(mesh.cell_parents[pairs[:, 0]].astype(np.int64) * n + mesh.cell_parents[pairs[:, 1]])
+    return np.stack([key // n, key % n], axis=1), lo, period
 
 
 def _find_periodic_pairs(mesh: Mesh, axis: int):
@@ -57,8 +70,11 @@ def neighbour_table(mesh: Mesh) -> np.ndarray:
     """Face neighbours of every cell, shape (n_cells, m), -1 padded; cached per mesh.
 
     From the cell array's index arithmetic on regular grids (no face grouping needed),
-    else from ``mesh.face_pairs`` (each pair once as (a, b) in row a, once as (b, a) in row b).
+    else from ``mesh.face_pairs`` (each pair once as (a, b) in row a, once as (b, a) in row b);
+    the whole cells' own table for a :class:`~phasegauge.model._whole_cells.WholeCells` view.
     """
+    if isinstance(mesh, WholeCells):
+        return mesh.face_neighbours
     return mesh.memo("droplet_neighbours", lambda: _build_neighbour_table(mesh))
 
 

@@ -31,6 +31,13 @@ grid, ``mesh.face_pairs`` elsewhere). Steps 1 and 2 live in ``_droplet_graph``, 
 4. *Table.* Integrals with weights ``c dV`` over each droplet's cells,
    threshold cells and band share, by ``numpy.bincount``; boxes from the
    corners of the core cells.
+
+On a mesh whose cells a reader split into pieces (:attr:`Mesh.cell_parents`: polyhedra into
+tetrahedra) every step runs on the *whole* cells, as on any other mesh a droplet is a set of the
+solver's cells: c, the velocity and the contour's cells are taken per whole cell first (the
+volume-weighted mean of the pieces, so ``c dV`` per whole cell is the sum of its pieces'), and the
+graph, centroids, sizes and corner boxes are those of the whole cells
+(:class:`~phasegauge.model._whole_cells.WholeCells`, built once per mesh).
 """
 
 from __future__ import annotations
@@ -47,6 +54,7 @@ from ..model.fields import cell_values, vector_values
 from ..model.mesh import Mesh
 from ..model._centroids import cell_centroids_of
 from ..model._grouping import index_dtype
+from ..model._whole_cells import WholeCells, whole_cells
 from ._band_sharing import finish_far_band, share_band
 from ._droplet_graph import join_periodic, neighbour_table, periodic_pairs, pieces
 from ._droplet_measures import (TABLE_COLUMNS, droplet_boxes, droplet_table, mean_velocity, shape_factors,
@@ -65,17 +73,22 @@ class DropletLabels:
     Attributes
     ----------
     labels : ndarray of shape (n_cells,), int32
-        Droplet number of each cell with ``c > level``; -1 elsewhere.
-    shared_labels : ndarray of shape (n_cells,), int32
+        Droplet number of each cell with ``c > level``; -1 elsewhere. On a split mesh
+        (``whole_cells``) one entry per whole cell, numbered by :attr:`Mesh.cell_parents`
+        (shape ``(cell_parents.max() + 1,)``), c being the whole cell's mean.
+    shared_labels : ndarray, int32, shaped and numbered as ``labels``
         As ``labels``, plus the diffuse-band cells shared out to droplets
         (the cells each droplet's ``volume`` integrates over).
     table : pandas.DataFrame
         One row per droplet, columns :data:`TABLE_COLUMNS`.
-    weights : ndarray of shape (n_cells,), float64
-        ``c dV`` of every cell (0 where c is not finite), in volume units.
+    weights : ndarray of float64, shaped and numbered as ``labels``
+        ``c dV`` of every cell (0 where c is not finite), in volume units; of every whole cell
+        on a split mesh (the sum of its pieces' ``c dV``).
     level : float
     periodic : tuple of str
         The periodic axes used, e.g. ``('x',)``.
+    whole_cells : bool
+        True when the arrays are numbered per whole cell of a split mesh.
     """
 
     labels: np.ndarray
@@ -84,6 +97,7 @@ class DropletLabels:
     weights: np.ndarray
     level: float
     periodic: tuple = field(default=())
+    whole_cells: bool = False
 
     @property
     def count(self) -> int:
@@ -226,7 +240,7 @@ def _unwrap(mesh: Mesh, near: _NearCells, member: np.ndarray, root: np.ndarray, 
     """
     cells, core_local = near.cells, near.core_local
     X = cell_centroids_of(mesh, cells[member])  # made from the corners on a split mesh (it keeps none)
-    box_lo, box_hi = corner_extremes(mesh, mesh.coordinates, cells[core_local])  # corner boxes
+    box_lo, box_hi = _corner_boxes(mesh, cells[core_local])
     if not axes:
         return X, box_lo, box_hi
     shift = np.zeros((near.k, mesh.dimension))
@@ -240,6 +254,13 @@ def _unwrap(mesh: Mesh, near: _NearCells, member: np.ndarray, root: np.ndarray, 
         ref = at_source[:, ax] + shift[source, ax]
         shift[band_member, ax] = period * np.round((ref - at_band[:, ax]) / period)
     return X + shift[member], box_lo + shift[core_local], box_hi + shift[core_local]
+
+
+def _corner_boxes(mesh, cells: np.ndarray) -> tuple:
+    """Extremes of the corner coordinates of ``cells`` (sorted): (low, high), each (k, dim)."""
+    if isinstance(mesh, WholeCells):  # from the pieces of each whole cell
+        return mesh.corner_boxes(cells)
+    return corner_extremes(mesh, mesh.coordinates, cells)
 
 
 def _on_mesh(mesh: Mesh, cells: np.ndarray, local_values: np.ndarray) -> np.ndarray:
@@ -267,6 +288,8 @@ def label_droplets(mesh: Mesh, c_cell, *, level: float = 0.5, connectivity: str 
     Parameters
     ----------
     mesh : Mesh
+        On a mesh of split cells (:attr:`Mesh.cell_parents`) the droplets are sets of whole cells
+        (see Notes), and the returned arrays are numbered per whole cell.
     c_cell : ndarray of shape (n_cells,), dimensionless, nominally in [0, 1]
         Phase indicator per cell. NaN cells belong to no droplet and are kept
         out of every integral; values are used as given (not clipped).
@@ -350,6 +373,14 @@ def label_droplets(mesh: Mesh, c_cell, *, level: float = 0.5, connectivity: str 
     connectivity applies to the cores; the band is always shared through
     faces.
 
+    On a split mesh (polyhedra read as tetrahedra about their face and cell
+    centres) each whole cell takes ``c = sum(V_piece c_piece) / V_whole``
+    (its exact cell integral over its measure: ``c dV`` and so every volume
+    integral of the pieces is unchanged), the velocity likewise, and a
+    contour element the whole cell of its piece; the cells, faces, centroids
+    and corner boxes above are then the whole cells'. A mesh of unsplit cells
+    is labelled cell by cell as before.
+
     Circularity and sphericity take the threshold-free ``volume``, which for a
     diffuse profile exceeds the volume inside the ``c = level`` contour by a
     term of order (width / radius)^2 (logistic profile: a factor
@@ -381,11 +412,17 @@ def label_droplets(mesh: Mesh, c_cell, *, level: float = 0.5, connectivity: str 
     level, band_floor = _check_options(level, connectivity, band_floor, interface_cells, interface_sizes)
     names, axes = _normalize_periodic(mesh, periodic)
     c = cell_values(mesh, c_cell, "c_cell")
+    vel = None if velocity is None else vector_values(mesh, velocity, "velocity", "cell")[0]
+    icells, isizes = _contour_arrays(mesh, interface_cells, interface_sizes)
+    source, split = mesh, mesh.cell_parents is not None
+    if split:  # per whole cell from here on (c dV summed over each whole cell's pieces)
+        mesh = whole_cells(source)
+        c = mesh.mean_of(c)
+        vel = None if vel is None else mesh.mean_of(vel)
+        icells = None if icells is None else source.cell_parents[icells]
     given_level = level
     if bulk is not None:
         c, level = _between_plateaus(c, level, bulk)
-    vel = None if velocity is None else vector_values(mesh, velocity, "velocity", "cell")[0]
-    icells, isizes = _contour_arrays(mesh, interface_cells, interface_sizes)
 
     c0 = np.where(np.isfinite(c), c, 0.0)
     del c  # a mesh-wide array (rescaled between the plateaus): c0 from here on
@@ -398,7 +435,7 @@ def label_droplets(mesh: Mesh, c_cell, *, level: float = 0.5, connectivity: str 
     cells, core_local = near.cells, near.core_local
 
     n_pieces, piece = pieces(mesh, cells, near.core, near.neighbours, connectivity)
-    links = [periodic_pairs(mesh, ax) for ax in axes]  # (pairs, low end, period) per axis
+    links = [periodic_pairs(source, ax, whole=split) for ax in axes]  # (pairs, low end, period) per axis
     local_links = [(local[pairs], lo, period) for pairs, lo, period in links]
     del local  # mesh-wide (4 bytes a cell): the near cells' own numbers from here on
     n_drop, droplet_of_piece, offset, spanning = join_periodic(n_pieces, piece, local_links)
@@ -433,7 +470,7 @@ def label_droplets(mesh: Mesh, c_cell, *, level: float = 0.5, connectivity: str 
     labels_out = _on_mesh(mesh, cells, label)
     del label
     return DropletLabels(labels=labels_out, shared_labels=_on_mesh(mesh, cells, shared),
-                         table=table, weights=weights, level=given_level, periodic=names)
+                         table=table, weights=weights, level=given_level, periodic=names, whole_cells=split)
 
 
 def _between_plateaus(c, level, bulk):

@@ -9,10 +9,12 @@ those of the previous one, so only one step's labels are held at a time:
    is the same and nothing moved, otherwise the cell with the nearest
    centroid (a KD-tree of the new step's centroids, so the mesh may change).
    On a mesh whose cells a reader split into pieces (polyhedra into tetrahedra) the
-   search is over the whole cells: a piece moves from its whole cell's centroid
-   and lands in the whole cell with the nearest centroid, which counts for the
-   droplet of its labelled piece of largest ``c dV`` (one centroid kept a whole
-   cell, not one a piece).
+   search is over the whole cells (one centroid kept a whole cell, not one a piece),
+   and :func:`label_droplets` labels the whole cells: a labelled whole cell moves from
+   its centroid and lands in the whole cell with the nearest centroid. Labels given
+   per piece (``whole_cells=False`` on a split mesh) are read per whole cell too: a
+   piece moves from its whole cell's centroid, and a whole cell counts for the
+   droplet of its labelled piece of largest ``c dV``.
    The overlap of previous droplet p with new droplet q is the sum of ``c dV``
    of p's cells that land in q. A pair is linked when the overlap is at least
    ``min_overlap`` times the smaller of the two core volumes.
@@ -39,6 +41,7 @@ from ..errors import OptionError
 from ..model.axes import AXIS_NAMES
 from ..model.mesh import Mesh
 from ..model.outline import MeshOutline
+from ..model._whole_cells import whole_cell_count
 from ._labelling import DropletLabels, _at_cells, _normalize_periodic
 
 __all__ = ["DropletTracker", "track_droplets", "EVENT_COLUMNS", "EVENT_KINDS"]
@@ -113,7 +116,8 @@ class DropletTracker:
         self._events: list = []
 
     # ------------------------------------------------------------------ feeding
-    def add(self, step, time, mesh: Mesh, labels, table=None, *, velocity_known=None, weights=None):
+    def add(self, step, time, mesh: Mesh, labels, table=None, *, velocity_known=None, weights=None,
+            whole_cells=None):
         """Add the next step.
 
         Parameters
@@ -124,14 +128,18 @@ class DropletTracker:
         mesh : Mesh
         labels : DropletLabels or ndarray of shape (n_cells,), int
             The step's droplet labels (-1: no droplet). A :class:`DropletLabels`
-            also supplies ``table`` and ``weights``.
+            also supplies ``table``, ``weights`` and ``whole_cells``. Per whole cell of a
+            split mesh (``whole_cells``): shape ``(mesh.cell_parents.max() + 1,)``.
         table : pandas.DataFrame, optional
             The droplet table of :func:`label_droplets` (row i = droplet i).
         velocity_known : bool, optional
             Move droplets by their ``velocity_*`` columns before the overlap.
             Default: when those columns hold finite values.
-        weights : ndarray of shape (n_cells,), optional
-            ``c dV`` per cell for the overlap; default the cell measures.
+        weights : ndarray shaped as ``labels``, optional
+            ``c dV`` per cell for the overlap; default the cell (or whole-cell) measures.
+        whole_cells : bool, optional
+            ``labels`` and ``weights`` are numbered per whole cell of a split mesh
+            (:attr:`Mesh.cell_parents`). Default: as the :class:`DropletLabels` says, else False.
 
         Returns
         -------
@@ -141,24 +149,31 @@ class DropletTracker:
         if isinstance(labels, DropletLabels):
             table = labels.table if table is None else table
             weights = labels.weights if weights is None else weights
+            whole_cells = labels.whole_cells if whole_cells is None else whole_cells
             labels = labels.labels
         if table is None:
             raise OptionError("a droplet table is needed beside the labels",
                               fix="pass the DropletLabels of label_droplets, or its .table")
+        whole_cells = bool(whole_cells) and mesh.cell_parents is not None
         labels = np.asarray(labels)
-        if labels.shape != (mesh.n_cells,):
-            raise OptionError(f"labels must have shape ({mesh.n_cells},), found {labels.shape}",
+        n_cells = whole_cell_count(mesh) if whole_cells else mesh.n_cells
+        if labels.shape != (n_cells,):
+            raise OptionError(f"labels must have shape ({n_cells},), found {labels.shape}",
                               fix="pass the labels of this step's mesh")
         n_drop = len(table)
         if labels.size and labels.max() >= n_drop:
             raise OptionError(f"labels refer to droplet {int(labels.max())} but the table has {n_drop} rows",
                               fix="pass the table made with these labels")
-        weights = mesh.cell_measures if weights is None else np.asarray(weights, dtype=np.float64)
+        if weights is None:
+            weights = (np.bincount(mesh.cell_parents, weights=mesh.cell_measures, minlength=n_cells) if whole_cells
+                       else mesh.cell_measures)
+        weights = np.asarray(weights, dtype=np.float64)
         core = np.flatnonzero(labels >= 0)
         return self.add_cells(step, time, mesh, table, core, labels[core], weights[core],
-                              velocity_known=velocity_known)
+                              velocity_known=velocity_known, whole_cells=whole_cells)
 
-    def add_cells(self, step, time, mesh, table, cells, labels, weights, *, velocity_known=None):
+    def add_cells(self, step, time, mesh, table, cells, labels, weights, *, velocity_known=None,
+                  whole_cells: bool = False):
         """Add the next step from its labelled cells only (no array over every cell).
 
         Parameters
@@ -174,13 +189,17 @@ class DropletTracker:
         table : pandas.DataFrame
             The droplet table of :func:`label_droplets` (row i = droplet i).
         cells : ndarray of shape (k,), int
-            The labelled cells, sorted increasing, within ``[0, mesh.n_cells)``.
+            The labelled cells, sorted increasing, within ``[0, mesh.n_cells)``; with
+            ``whole_cells``, whole cells of a split mesh (numbers of :attr:`Mesh.cell_parents`).
         labels : ndarray of shape (k,), int
             Their droplet numbers (rows of ``table``).
         weights : ndarray of shape (k,), float
             Their ``c dV``, for the overlap.
         velocity_known : bool, optional
             As in :meth:`add`.
+        whole_cells : bool
+            ``cells`` are whole cells of a split mesh (as :func:`label_droplets` labels one);
+            False: cells of the mesh as analysed (the pieces of a split mesh).
 
         Returns
         -------
@@ -214,7 +233,8 @@ class DropletTracker:
         diameter = (table["equivalent_diameter"].to_numpy(dtype=float) if "equivalent_diameter" in table
                     else np.full(n_drop, np.nan))
         box = (mesh.bounds[0, plane], mesh.bounds[1, plane])
-        current = {"step": step, "time": float(time), "mesh": mesh, "cells": cells,
+        whole_cells = bool(whole_cells) and mesh.cell_parents is not None
+        current = {"step": step, "time": float(time), "mesh": mesh, "cells": cells, "whole": whole_cells,
                    "labels": labels.astype(np.int64), "weights": weights,
                    "core_volume": core_volume,
                    "volume": volume, "centroid": centroid, "velocity": velocity,
@@ -261,17 +281,20 @@ class DropletTracker:
         moved = bool(np.any(shift != 0))
         same_mesh = mesh_p is mesh_c or (mesh_p.n_cells == mesh_c.n_cells
                                          and mesh_p.signature == mesh_c.signature)
-        if same_mesh and not moved:
+        if same_mesh and not moved and prev["whole"] == cur["whole"]:  # cells in the same numbering
             landed = _at_cells(cur["cells"], cur["labels"], prev["cells"])
         else:
-            parents = mesh_p.cell_parents
+            parents = None if prev["whole"] else mesh_p.cell_parents
             points = mesh_p.cell_centroids[prev["cells"] if parents is None else parents[prev["cells"]]]
             points = points + shift[prev["labels"]]
             for ax in axes:
                 period = hi[ax] - lo[ax]
                 points[:, ax] = lo[ax] + np.mod(points[:, ax] - lo[ax], period)
             found = self._locate(mesh_c, points)
-            landed = _at_cells(cur["cells"], cur["labels"], found) if mesh_c.cell_parents is None else _whole_labels(cur, mesh_c)[found]
+            if mesh_c.cell_parents is None or cur["whole"]:  # found: cells in the labels' own numbering
+                landed = _at_cells(cur["cells"], cur["labels"], found)
+            else:
+                landed = _whole_labels(cur, mesh_c)[found]
         hit = landed >= 0
         overlap = sparse.coo_matrix((prev["weights"][hit], (prev["labels"][hit], landed[hit])),
                                     shape=(n_prev, n_cur)).tocsr()

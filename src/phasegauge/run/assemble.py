@@ -161,7 +161,8 @@ class TrackingFeed:
                     if outline is None:
                         return  # linked when the outline arrives
                     self.tracker.add_cells(result.index, result.time, outline, result.droplets,
-                                           result.label_cells, result.label_values, result.label_weights)
+                                           result.label_cells, result.label_values, result.label_weights,
+                                           whole_cells=result.label_whole)
                     self._last = outline
             del self._waiting[self._order[self._position]]
             self._position += 1

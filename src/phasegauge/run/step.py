@@ -39,7 +39,9 @@ class StepResult:
     ``outline`` carries what series-level work needs of the step's mesh (its
     identity, extent and, in a run with droplets, the cell centroids while the
     step waits to be tracked); ``label_cells``, ``label_values`` and
-    ``label_weights`` are the labelled cells of the droplet analysis.
+    ``label_weights`` are the labelled cells of the droplet analysis (cell numbers, droplet
+    numbers, ``c dV``): on a mesh whose cells a reader split (``label_whole``), whole cells
+    numbered by :attr:`Mesh.cell_parents`, as the droplets are labelled there.
     """
 
     index: int
@@ -50,6 +52,7 @@ class StepResult:
     label_cells: np.ndarray | None = None
     label_values: np.ndarray | None = None
     label_weights: np.ndarray | None = None
+    label_whole: bool = False  # label_cells are whole cells of a split mesh
     profile: object = None  # DataFrame or None
     contour: object = None  # Contour of the step (kept for snapshots)
     mesh_signature: str = ""
@@ -67,7 +70,10 @@ class StepResult:
     samples: np.ndarray | None = None  # field and c at the run's probe, line and measured points (n, 2)
 
     def labels(self, n_cells: int) -> tuple[np.ndarray, np.ndarray]:
-        """Droplet label of every cell (-1: none) and the c dV weights of the labelled cells."""
+        """Droplet label of every cell (-1: none) and the c dV weights of the labelled cells.
+
+        ``n_cells``: the cells of the labels' numbering (whole cells with ``label_whole``).
+        """
         out = np.full(n_cells, -1, dtype=np.int32)
         weights = np.zeros(n_cells)
         if self.label_cells is not None:
@@ -233,6 +239,7 @@ def analyse_step(step, options, *, contour_dir: str | None = None, reported_mesh
         result.label_cells = labelled.astype(np.int32 if mesh.n_cells < 2 ** 31 else np.int64)  # half the bytes
         result.label_values = found.labels[labelled].astype(np.int32)
         result.label_weights = np.asarray(found.weights)[labelled]
+        result.label_whole = bool(found.whole_cells)  # numbered per whole cell on a split mesh
         result.droplets = table
         del found, labelled  # labels and c dV of every cell (16 bytes a cell): not held through the sections
     if "mixing" in options.analyses:
