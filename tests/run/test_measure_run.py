@@ -137,6 +137,21 @@ def test_resume_refuses_other_options(tmp_path):
         measure(listing, "alpha", out=out, resume=True, level=0.4, analyses=("conservation",))
 
 
+def test_resume_refuses_a_run_another_version_measured(tmp_path, monkeypatch):
+    """A step cached by other code could differ in method: the run is not finished by this code."""
+    from phasegauge.run import cache
+
+    listing = _moving_disc_series(str(tmp_path), steps=2)
+    out = tmp_path / "out"
+    measure(listing, "alpha", out=out, analyses=("conservation",))
+    measure(listing, "alpha", out=out, resume=True, analyses=("conservation",))  # the same code: fine
+    monkeypatch.setattr(cache, "code_digest", lambda: "0123456789abcdef")
+    with pytest.raises(OutputError, match="another version of phasegauge") as caught:
+        measure(listing, "alpha", out=out, resume=True, analyses=("conservation",))
+    assert "--overwrite" in caught.value.fix
+    measure(listing, "alpha", out=out, overwrite=True, analyses=("conservation",))
+
+
 def test_options_are_checked_first():
     with pytest.raises(OptionError, match="level must lie"):
         MeasureOptions(field="c", level=1.5)

@@ -8,7 +8,7 @@ import time
 import numpy as np
 
 from ._canvas import new_figure
-from ._files import RUN_MARKER, atomic_save_figure, atomic_write_csv, atomic_write_json
+from ._files import atomic_save_figure, atomic_write_csv, atomic_write_json, mark_complete
 from ._measure_report import manifest as run_manifest
 
 __all__ = ["write_campaign_report", "plot_campaign"]
@@ -46,8 +46,7 @@ def plot_campaign(table, *, parameter: str = "parameter", unit: str = ""):
     return figure
 
 
-def write_campaign_report(out, table, *, parameter: str, unit: str, version: str, started: float,
-                          run_key: str = "") -> None:
+def write_campaign_report(out, table, *, parameter: str, unit: str, version: str, started: float) -> None:
     """Write campaign.csv, campaign.png and manifest.json into ``out`` (each file atomically)."""
     out = os.fspath(out)
     atomic_write_csv(os.path.join(out, "campaign.csv"), table)
@@ -62,4 +61,4 @@ def write_campaign_report(out, table, *, parameter: str, unit: str, version: str
                             fields={"parameter": parameter, "unit": unit, "runs": runs},
                             outputs=written, timings={"total_seconds": round(time.time() - started, 3)})
     atomic_write_json(os.path.join(out, "manifest.json"), manifest)
-    atomic_write_json(os.path.join(out, RUN_MARKER), {"run_key": run_key, "state": "complete"})
+    mark_complete(out)

@@ -21,6 +21,7 @@ from ..errors import OutputError
 
 __all__ = ["atomic_write_bytes", "atomic_write_text", "atomic_write_csv", "atomic_write_json",
            "atomic_save_figure", "encode_png", "prepare_output_folder", "output_transaction", "RUN_MARKER",
+           "mark_complete",
            "PREVIOUS_RUN", "TEMP_PREFIX", "remove_temporaries"]
 
 #: file inside an output folder that says a phasegauge run owns it
@@ -213,7 +214,8 @@ def _lay_out_once(figure, dpi: int) -> None:
     figure.set_layout_engine(None)  # with rc settings that put an engine back, matplotlib lays it out again
 
 
-def prepare_output_folder(out, *, overwrite: bool = False, resume: bool = False, run_key: str = "") -> str:
+def prepare_output_folder(out, *, overwrite: bool = False, resume: bool = False, run_key: str = "",
+                          code: str = "") -> str:
     """Check and create the output folder.
 
     Parameters
@@ -225,6 +227,9 @@ def prepare_output_folder(out, *, overwrite: bool = False, resume: bool = False,
         Continue an interrupted run in ``out`` (its cached steps are reused).
     run_key : str
         Identity of this run's inputs and options; a resumed folder must match it.
+    code : str
+        Identity of the code that measures (a digest of its source); a resumed folder must have
+        been measured by the same code, so that no run mixes the numbers of two versions.
 
     Returns
     -------
@@ -235,7 +240,7 @@ def prepare_output_folder(out, *, overwrite: bool = False, resume: bool = False,
     OutputError
         The folder exists and neither flag is given; it holds files phasegauge
         did not write (it is never emptied then); resuming a run of other
-        inputs or options; the folder cannot be created.
+        inputs or options, or one another version measured; the folder cannot be created.
     """
     out = os.fspath(out)
     marker = os.path.join(out, RUN_MARKER)
@@ -259,6 +264,10 @@ def prepare_output_folder(out, *, overwrite: bool = False, resume: bool = False,
             if run_key and previous.get("run_key") != run_key:
                 raise OutputError("was made from other inputs or options, so it cannot be resumed", where=out,
                                   fix="rerun with the same inputs and options, or use --overwrite")
+            if code and previous.get("code", "") != code:
+                raise OutputError("was measured by another version of phasegauge, whose numbers may differ, so "
+                                  "it cannot be resumed", where=out,
+                                  fix="use --overwrite to measure it again with this version")
             remove_temporaries(out)
             if txn is not None:
                 txn.mode = "resume"
@@ -288,8 +297,20 @@ def prepare_output_folder(out, *, overwrite: bool = False, resume: bool = False,
                           fix="choose an output folder you can write to") from None
     if txn is not None:
         txn.mode = mode
-    atomic_write_json(marker, {"run_key": run_key, "state": "running"})
+    atomic_write_json(marker, {"run_key": run_key, "code": code, "state": "running"})
     return mode
+
+
+def mark_complete(out) -> None:
+    """Mark the run in ``out`` complete, keeping what :func:`prepare_output_folder` noted of it
+    (the run's inputs and options, and the code that measured it)."""
+    marker = os.path.join(os.fspath(out), RUN_MARKER)
+    try:
+        with open(marker, encoding="utf-8") as handle:
+            noted = json.load(handle)
+    except (OSError, ValueError):
+        noted = {}
+    atomic_write_json(marker, {"run_key": noted.get("run_key", ""), "code": noted.get("code", ""), "state": "complete"})
 
 
 class _Transaction:

@@ -10,7 +10,7 @@ import numpy as np
 
 from . import _plots
 from ._drawing import save_figure_makers
-from ._files import RUN_MARKER, atomic_write_csv, atomic_write_json, atomic_write_text
+from ._files import atomic_write_csv, atomic_write_json, atomic_write_text, mark_complete
 from ._html import Page
 
 __all__ = ["write_measure_report", "measure_figures", "manifest"]
@@ -107,7 +107,7 @@ def write_measure_report(out, result, *, series: dict, inputs: list, snapshots: 
     record = manifest("measure", version=version, inputs=inputs, fields=fields,
                       outputs=written + [f"contours/{c}" for c in contours], timings=timings)
     atomic_write_json(os.path.join(out, "manifest.json"), record)
-    atomic_write_json(os.path.join(out, RUN_MARKER), {"run_key": _marker_key(out), "state": "complete"})
+    mark_complete(out)
 
 
 def _ran(opts) -> list:
@@ -126,16 +126,6 @@ def _ran(opts) -> list:
     if "mixing" in opts.analyses and opts.section_axis:
         pairs += [("cross sections along", opts.section_axis), ("mixing target", opts.mixing_target)]
     return pairs
-
-
-def _marker_key(out: str) -> str:
-    import json
-
-    try:
-        with open(os.path.join(out, RUN_MARKER), encoding="utf-8") as handle:
-            return json.load(handle).get("run_key", "")
-    except OSError:
-        return ""
 
 
 def _options_dict(options) -> dict:

@@ -133,6 +133,7 @@ def run_campaign(runs: list, options, *, out, parameter: str = "parameter", unit
         in their folders for ``resume``.
     """
     from ..report._files import output_transaction, prepare_output_folder
+    from .cache import code_digest
     from ..model._threads import check_threads
     from .options import check_workers
 
@@ -155,7 +156,7 @@ def run_campaign(runs: list, options, *, out, parameter: str = "parameter", unit
                          + options.key().encode()).hexdigest()[:16]
     folders = [os.path.join(os.fspath(out), f"run_{label}") for label in labels]
     with output_transaction(out) as txn:
-        prepare_output_folder(out, overwrite=overwrite, resume=resume, run_key=key)
+        prepare_output_folder(out, overwrite=overwrite, resume=resume, run_key=key, code=code_digest())
         if txn is not None:  # a failed run leaves the finished ones for --resume
             txn.worth_keeping = lambda: any(_finished(f) is not None for f in folders)
         done = [_finished(f) if resume else None for f in folders]
@@ -181,8 +182,7 @@ def run_campaign(runs: list, options, *, out, parameter: str = "parameter", unit
         from ._report_data import package_version
         from ..report._campaign_report import write_campaign_report
 
-        write_campaign_report(out, table, parameter=parameter, unit=unit, version=package_version(), started=started,
-                              run_key=key)
+        write_campaign_report(out, table, parameter=parameter, unit=unit, version=package_version(), started=started)
     return CampaignResult(table=table, runs=results, parameter=parameter, unit=unit)
 
 

@@ -256,7 +256,7 @@ def _records(caught) -> list:
 def _measure(series, options, out, txn, *, workers, threads, scheduler, overwrite, resume, progress,
              contours, snapshots, notes, invocation, output, progress_label="steps") -> MeasureResult:
     from .assemble import TrackingFeed, assemble
-    from .cache import StepCache
+    from .cache import StepCache, code_digest
     from .executors import run_steps
     from .progress import Progress
     from ._selection import chosen_steps
@@ -271,7 +271,7 @@ def _measure(series, options, out, txn, *, workers, threads, scheduler, overwrit
         from ..report._files import prepare_output_folder
 
         run_key = hashlib.sha256(f"{os.path.abspath(series.path)}|{options.key()}".encode()).hexdigest()[:16]
-        prepare_output_folder(out, overwrite=overwrite, resume=resume, run_key=run_key)
+        prepare_output_folder(out, overwrite=overwrite, resume=resume, run_key=run_key, code=code_digest())
         cache = StepCache(os.path.join(os.fspath(out), ".cache"), options.key())
         txn.worth_keeping = cache.holds_finished_steps
         if contours and "interface" in options.analyses:
