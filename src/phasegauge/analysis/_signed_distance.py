@@ -387,7 +387,8 @@ def _centre_split_distance(points: np.ndarray, values: np.ndarray, wanted: np.nd
         own = wanted[:first] if cls is None else wanted[:first] & cls[:first]
         picked = ids if cls is None else ids[cls[first + ids]]
         need = own.copy()
-        need[corners[_segments(offsets, picked)]] = True
+        listed = corners[_segments(offsets, picked)]  # the centres' corners, centre after centre
+        need[listed] = True
         rows = np.flatnonzero(need)
         tree = cKDTree(cent, leafsize=64, balanced_tree=False)
         found = np.empty((rows.size, _CANDIDATES), dtype=np.intp)
@@ -402,10 +403,12 @@ def _centre_split_distance(points: np.ndarray, values: np.ndarray, wanted: np.nd
         # each corner's candidates' centroids, k x dim coordinates a row (none found: at infinity)
         k, dim = _CANDIDATES, cent.shape[1]
         table = np.concatenate([cent, np.full((1, dim), np.inf)])[found].reshape(rows.size, k * dim)
+        ends = np.cumsum(offsets[picked + 1] - offsets[picked])
         for lo in range(0, picked.size, _CENTRE_CHUNK):
             which = picked[lo:lo + _CENTRE_CHUNK]
             counts = offsets[which + 1] - offsets[which]
-            pairs = slot[corners[_segments(offsets, which)]]  # the centres' corners, centre after centre
+            start = int(ends[lo - 1]) if lo else 0
+            pairs = slot[listed[start:start + int(counts.sum())]]
             at = points[first + which]
             offset = table[pairs].reshape(-1, k, dim)
             offset -= np.repeat(at, counts, axis=0)[:, None, :]
