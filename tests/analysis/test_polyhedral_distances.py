@@ -58,7 +58,7 @@ def test_sphere_on_polyhedra_distances_and_widths(tmp_path, cells_across, n):
                         rms=0.02, largest=0.12)
 
 
-def test_sphere_on_polyhedra_added_centres_measured_from_their_corners(tmp_path):
+def test_sphere_on_polyhedra_added_centres_measured_from_their_corners(tmp_path, monkeypatch):
     # The reader hands the added face and cell centres' corner lists to the mesh
     # (`mesh.memo(SPLIT_CENTRES)`); the widths search only the polyhedra's own corners (their 3
     # nearest elements) and measure each centre to the plane of the nearest (by centroid) of its
@@ -104,3 +104,19 @@ def test_sphere_on_polyhedra_added_centres_measured_from_their_corners(tmp_path)
     searched = _signed_distance(mesh.coordinates[rows], c[rows], geometry, mesh.plane_axes, 0.5, measured.bound)
     same = np.isclose(measured.point[rows], searched, rtol=0, atol=1e-12 * h)
     assert same.mean() > 0.97  # 0.981 measured
+    # the far rows searching a thinned set (more than 2 x _THIN_TO pieces; a second pass): thinned
+    # here by patching _THIN_TO, the same search as a larger mesh's
+    from phasegauge.analysis import _signed_distance as module
+
+    reach = module._centre_reach(mesh.coordinates, centres)
+    assert 0.5 * h < reach < 1.5 * h
+    monkeypatch.setattr(module, "_THIN_TO", geometry.sizes.size // 3)
+    split = module._centre_split_distance(mesh.coordinates, c, found, centres, geometry, mesh.plane_axes, 0.5,
+                                          measured.bound, reach)
+    rows = np.flatnonzero(found)
+    searched = _signed_distance(mesh.coordinates[rows], c[rows], geometry, mesh.plane_axes, 0.5, measured.bound)
+    assert not np.allclose(searched, measured.point[rows], rtol=0, atol=1e-6 * h, equal_nan=True)  # thinned
+    corner = rows < centres.first
+    assert np.allclose(split[rows[corner]], searched[corner], rtol=0, atol=1e-12 * h, equal_nan=True)
+    same = np.isclose(split[rows[~corner]], searched[~corner], rtol=0, atol=1e-12 * h)
+    assert same.mean() > 0.97

@@ -18,6 +18,8 @@ _MAX_BUCKETS = 1 << 18
 _CANDIDATES = 3
 #: added centres per pass of :func:`_centre_split_distance` (about 15 candidates each)
 _CENTRE_CHUNK = 1 << 12
+#: about this many elements searched from the far rows (see :func:`_search_sets`)
+_THIN_TO = 2000
 #: least half-size of a merged piece, in sizes of its cell (:func:`_whole_cell_pieces`)
 _LEAST_HALF = 0.45
 
@@ -335,7 +337,7 @@ def _search_sets(geometry: _ContourGeometry, plane_axes) -> tuple[tuple, tuple]:
     half = geometry.halves
     if half is None:
         half = 0.5 * (sizes if contour.dimension == 2 else np.sqrt(sizes))
-    stride = max(1, sizes.size // 2000)
+    stride = max(1, sizes.size // _THIN_TO)
     if stride == 1:
         return (cent, normal, half), (cent, normal, half)
     thin = slice(0, None, stride)
@@ -387,8 +389,7 @@ def _centre_split_distance(points: np.ndarray, values: np.ndarray, wanted: np.nd
         own = wanted[:first] if cls is None else wanted[:first] & cls[:first]
         picked = ids if cls is None else ids[cls[first + ids]]
         need = own.copy()
-        listed = corners[_segments(offsets, picked)]  # the centres' corners, centre after centre
-        need[listed] = True
+        need[corners[_segments(offsets, picked)]] = True
         rows = np.flatnonzero(need)
         tree = cKDTree(cent, leafsize=64, balanced_tree=False)
         found = np.empty((rows.size, _CANDIDATES), dtype=np.intp)
@@ -403,25 +404,21 @@ def _centre_split_distance(points: np.ndarray, values: np.ndarray, wanted: np.nd
         # each corner's candidates' centroids, k x dim coordinates a row (none found: at infinity)
         k, dim = _CANDIDATES, cent.shape[1]
         table = np.concatenate([cent, np.full((1, dim), np.inf)])[found].reshape(rows.size, k * dim)
-        ends = np.cumsum(offsets[picked + 1] - offsets[picked])
-        for lo in range(0, picked.size, _CENTRE_CHUNK):
-            which = picked[lo:lo + _CENTRE_CHUNK]
-            counts = offsets[which + 1] - offsets[which]
-            start = int(ends[lo - 1]) if lo else 0
-            pairs = slot[listed[start:start + int(counts.sum())]]
-            at = points[first + which]
-            offset = table[pairs].reshape(-1, k, dim)
-            offset -= np.repeat(at, counts, axis=0)[:, None, :]
-            far = np.einsum("ijk,ijk->ij", offset, offset).ravel()  # k a corner, a centre's corners in a row
-            starts = k * np.concatenate([[0], np.cumsum(counts)[:-1]])
-            least = np.minimum.reduceat(far, starts)
-            hits = np.flatnonzero(far == np.repeat(least, k * counts))
-            centre_of = np.repeat(np.arange(which.size), counts)[hits // k]
-            hits = hits[np.concatenate([[True], centre_of[1:] != centre_of[:-1]])]  # the first nearest of each
-            keep = np.flatnonzero(least < bound * bound)
-            hits = hits[keep]
-            dist[first + which[keep]] = _plane_distance(at[keep], found[pairs[hits // k], hits % k], cent, normal,
-                                                        half)
+        sizes = offsets[picked + 1] - offsets[picked]
+        for size in np.unique(sizes):  # centres of as many corners at a time: their candidates a row each
+            group = picked[sizes == size]
+            for lo in range(0, group.size, _CENTRE_CHUNK):
+                which = group[lo:lo + _CENTRE_CHUNK]
+                pairs = slot[corners[offsets[which][:, None] + np.arange(size)]]  # (centres, corners)
+                at = points[first + which]
+                offset = table[pairs].reshape(which.size, size * k, dim)
+                offset -= at[:, None, :]
+                far = np.einsum("ijk,ijk->ij", offset, offset)
+                best = np.argmin(far, axis=1)  # the first nearest of each centre's candidates
+                keep = np.flatnonzero(far[np.arange(which.size), best] < bound * bound)
+                best = best[keep]
+                nearest = found[pairs[keep, best // k], best % k]
+                dist[first + which[keep]] = _plane_distance(at[keep], nearest, cent, normal, half)
     np.negative(dist, out=dist, where=~(values > level))
     return dist
 
