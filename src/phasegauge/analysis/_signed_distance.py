@@ -371,8 +371,11 @@ def _centre_split_distance(points: np.ndarray, values: np.ndarray, wanted: np.nd
     centre's; a point's own distance is to the first of them, as :func:`_signed_distance` gives
     it. An added centre is not searched: it is measured to the plane of the nearest (by centroid)
     of its corners' candidates, which is the search's own element whenever that element is among
-    them (99.3 % of the centres on jittered polyhedra, see benchmarks/RESULTS.md) and otherwise a
-    near neighbour of it. ``reach`` is at least the largest distance from a centre to one of its
+    them (at 98-99 % of the centres on jittered polyhedra, see benchmarks/RESULTS.md, "Twelfth
+    round: the added centres' distances") and otherwise a near neighbour of it. With one element
+    per crossed whole cell (:func:`_whole_cell_pieces`) the centres keep the search's accuracy
+    against a sphere; with several elements a cell (the contour's own triangles) 3 candidates a
+    corner are too few (the search's element at about two in three centres). ``reach`` is at least the largest distance from a centre to one of its
     corners: the corners search up to ``bound + reach``, so that any element within ``bound`` of a
     centre is found among its corners' candidates whenever a search without bound would find it.
     About four in five of the points the widths search on polyhedra are centres.
@@ -395,7 +398,8 @@ def _centre_split_distance(points: np.ndarray, values: np.ndarray, wanted: np.nd
         found = np.empty((rows.size, _CANDIDATES), dtype=np.intp)
         for lo in range(0, rows.size, _QUERY_CHUNK):
             at = points[rows[lo:lo + _QUERY_CHUNK]]
-            far, nearest = tree.query(at, k=_CANDIDATES, distance_upper_bound=bound + reach)  # none: index cent.shape[0]
+            # (fewer than k found: the index cent.shape[0] and an infinite distance)
+            far, nearest = tree.query(at, k=_CANDIDATES, distance_upper_bound=bound + reach)
             found[lo:lo + at.shape[0]] = nearest
             mine = np.flatnonzero(own[rows[lo:lo + _QUERY_CHUNK]] & (far[:, 0] < bound))
             dist[rows[lo + mine]] = _plane_distance(at[mine], nearest[mine, 0], cent, normal, half)
