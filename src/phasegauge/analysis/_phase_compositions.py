@@ -145,7 +145,9 @@ def interface_distance(mesh, c_cell, contour, *, level=0.5, reach=np.inf, measur
         # whose distance is below that for every copy keeps it (fmin below), and is not searched
         halves = [half for _, _, half in _search_sets(copied, contour.plane_axes)]
         slack = max(float(half.max(initial=0.0)) for half in halves)
-        keeps = (face - slack) * (1 - 1e-9) > np.abs(dist)  # NaN (not searched) is searched
+        # (a margin above round-off in the coordinates; NaN, not searched, is searched)
+        margin = 1e-9 * float(np.abs(bounds).max())
+        keeps = face - slack > np.abs(dist) * (1 + 1e-9) + margin
         if limited:  # only cells within reach of a copy can be near
             keeps |= face > reach
         rows = np.flatnonzero(~keeps)

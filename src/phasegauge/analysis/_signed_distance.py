@@ -375,10 +375,11 @@ def _centre_split_distance(points: np.ndarray, values: np.ndarray, wanted: np.nd
     round: the added centres' distances") and otherwise a near neighbour of it. With one element
     per crossed whole cell (:func:`_whole_cell_pieces`) the centres keep the search's accuracy
     against a sphere; with several elements a cell (the contour's own triangles) 3 candidates a
-    corner are too few (the search's element at about two in three centres). ``reach`` is at least the largest distance from a centre to one of its
-    corners: the corners search up to ``bound + reach``, so that any element within ``bound`` of a
-    centre is found among its corners' candidates whenever a search without bound would find it.
-    About four in five of the points the widths search on polyhedra are centres.
+    corner are too few (the search's element at about two in three centres). ``reach`` is at
+    least the largest distance from a centre to one of its corners: the corners search up to
+    ``bound + reach``, so that any element within ``bound`` of a centre is found among its
+    corners' candidates whenever a search without bound would find it. About four in five of the
+    points the widths search on polyhedra are centres.
     """
     from scipy.spatial import cKDTree
 
