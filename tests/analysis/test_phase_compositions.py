@@ -318,3 +318,37 @@ def test_interface_distance_wraps_a_periodic_axis_of_a_mesh_in_the_y_z_plane(rea
     near = exact <= reach
     np.testing.assert_allclose(np.abs(wrapped[near]), exact[near], atol=1e-4)
     np.testing.assert_array_equal(np.abs(wrapped[~near]), 2 * reach)
+
+
+@pytest.mark.parametrize("kind", ["quad", "tetra"])
+def test_interface_distance_periodic_without_reach_searches_the_copies_only_where_they_can_be_nearer(
+        kind, monkeypatch):
+    # with an infinite reach, a cell is searched against the contour's copies only when the nearest
+    # periodic face (beyond which every copy lies) is within its distance plus the copies' largest
+    # half-size; the distances are bit-identical to searching every cell against both and taking
+    # the nearer [the same analytic cosine: interfaces at x = 0.05, 0.55 and a period away]
+    from phasegauge.analysis import _phase_compositions as module
+    from phasegauge.analysis._signed_distance import _ContourGeometry, _signed_distance
+
+    if kind == "tetra":
+        mesh = grid_mesh((40, 3, 3), bounds=[(0.0, 1.0), (0.0, 0.1), (0.0, 0.1)], kind=kind)
+    else:
+        mesh = grid_mesh((80, 8), bounds=[(0.0, 1.0), (0.0, 0.1)], kind=kind)
+    c_cell, contour, exact = _cosine_along(mesh, 0)
+    points = mesh.cell_centroids
+    own = np.abs(_signed_distance(points, c_cell, _ContourGeometry(contour), contour.plane_axes, 0.5, compact=True))
+    copies = _ContourGeometry(module._periodic_images(mesh, contour, ("x",), np.inf))
+    across = np.abs(_signed_distance(points, c_cell, copies, contour.plane_axes, 0.5, compact=True))
+    every = np.where(c_cell > 0.5, 1.0, -1.0) * np.fmin(own, across)
+    searched = []
+    original = module._signed_distance
+
+    def counted(points, *args, **kwargs):
+        searched.append(points.shape[0])
+        return original(points, *args, **kwargs)
+
+    monkeypatch.setattr(module, "_signed_distance", counted)
+    wrapped = module.interface_distance(mesh, c_cell, contour, periodic=("x",))
+    np.testing.assert_array_equal(wrapped, every)
+    np.testing.assert_allclose(np.abs(wrapped), exact, atol=1e-4)
+    assert searched[0] == mesh.n_cells and 0 < searched[1] < 0.5 * mesh.n_cells

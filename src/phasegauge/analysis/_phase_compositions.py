@@ -24,7 +24,7 @@ from ..model.corners import corner_mean
 from ..model.mixture_models import DoubleWellModel
 from ._binodal import _stability, binodal, spinodal
 from ._labelling import _normalize_periodic
-from ._signed_distance import _ContourGeometry, _maybe_near_cells, _signed_distance
+from ._signed_distance import _ContourGeometry, _maybe_near_cells, _search_sets, _signed_distance
 from ._sums import dot
 
 __all__ = ["interface_distance", "bulk_compositions", "mixture_state", "solute_distribution", "equilibrium_gap",
@@ -130,19 +130,28 @@ def interface_distance(mesh, c_cell, contour, *, level=0.5, reach=np.inf, measur
     if rows.size:
         dist[rows] = np.abs(_signed_distance(points[rows], c[rows], geometry, contour.plane_axes, level,
                                              bound=reach, compact=True))
-    copies = _periodic_images(mesh, contour, periodic, reach)
+    names, columns = _normalize_periodic(mesh, periodic)
+    copies = _periodic_images(mesh, contour, names, reach)
     if copies is not None:  # across a periodic boundary: the nearer of the contour and its copies
         copied = _ContourGeometry(copies)
-        rows = np.arange(c.size)
-        if limited:  # the copies lie beyond a periodic face: only cells within reach of one can be near
-            names, columns = _normalize_periodic(mesh, periodic)
-            bounds = mesh.bounds  # in x, y, z; the centroids in the mesh's own axes (columns)
-            edge = np.zeros(c.size, dtype=bool)
-            for name, column in zip(names, columns):
-                axis = AXIS_INDEX[name]
-                x = points[:, column]
-                edge |= (x - bounds[0, axis] <= reach) | (bounds[1, axis] - x <= reach)
-            rows = rows[edge]
+        # the copies lie beyond a periodic face: no centroid of theirs is nearer a cell than the face
+        bounds = mesh.bounds  # in x, y, z; the centroids in the mesh's own axes (columns)
+        face = np.full(c.size, np.inf)
+        for name, column in zip(names, columns):
+            axis = AXIS_INDEX[name]
+            x = points[:, column]
+            np.minimum(face, np.minimum(x - bounds[0, axis], bounds[1, axis] - x), out=face)
+        # a plane's distance is at least its element's centroid distance less its half-size: a cell
+        # whose distance is below that for every copy keeps it (fmin below), and is not searched
+        halves = [half for _, _, half in _search_sets(copied, contour.plane_axes)]
+        slack = max(float(half.max(initial=0.0)) for half in halves)
+        # (a margin above round-off in the coordinates; NaN, not searched, is searched)
+        margin = 1e-9 * float(np.abs(bounds).max())
+        keeps = face - slack > np.abs(dist) * (1 + 1e-9) + margin
+        if limited:  # only cells within reach of a copy can be near
+            keeps |= face > reach
+        rows = np.flatnonzero(~keeps)
+        if limited:
             rows = rows[_maybe_near_cells(mesh, rows, copied.centroids[:, list(contour.plane_axes)], reach)]
         if rows.size:
             across = np.abs(_signed_distance(points[rows], c[rows], copied, contour.plane_axes, level,
@@ -153,11 +162,10 @@ def interface_distance(mesh, c_cell, contour, *, level=0.5, reach=np.inf, measur
     return dist
 
 
-def _periodic_images(mesh, contour, periodic, reach: float):
-    """The copies of ``contour`` shifted by a period along the ``periodic`` axes (each shift and
-    their combinations) that come within ``reach`` of the mesh's bounds, as one contour; None when
-    there are none."""
-    names, _ = _normalize_periodic(mesh, periodic)
+def _periodic_images(mesh, contour, names, reach: float):
+    """The copies of ``contour`` shifted by a period along the periodic axes ``names`` (each shift
+    and their combinations) that come within ``reach`` of the mesh's bounds, as one contour; None
+    when there are none."""
     if not names:
         return None
     bounds = mesh.bounds

@@ -14,6 +14,12 @@ from ..model.simplices import SimplexSplit
 _QUERY_CHUNK = 1 << 16
 #: at most about this many buckets in :func:`_maybe_near`'s grid
 _MAX_BUCKETS = 1 << 18
+#: nearest elements of each corner an added centre is measured against (:func:`_centre_split_distance`)
+_CANDIDATES = 3
+#: added centres per pass of :func:`_centre_split_distance` (about 15 candidates each)
+_CENTRE_CHUNK = 1 << 12
+#: about this many elements searched from the far rows (see :func:`_search_sets`)
+_THIN_TO = 2000
 #: least half-size of a merged piece, in sizes of its cell (:func:`_whole_cell_pieces`)
 _LEAST_HALF = 0.45
 
@@ -35,12 +41,16 @@ def _nearest_plane_distance(points, rows, cent, normal, half, bound, compact=Fal
         at = points[rows[lo:lo + _QUERY_CHUNK]]
         far, nearest = tree.query(at, k=1, distance_upper_bound=bound)
         near = np.isfinite(far)
-        nearest = nearest[near]
-        offset = at[near] - cent[nearest]
-        across = np.abs(np.einsum("ij,ij->i", offset, normal[nearest]))
-        lateral = np.sqrt(np.maximum(np.einsum("ij,ij->i", offset, offset) - across ** 2, 0.0))
-        out[lo:lo + _QUERY_CHUNK][near] = np.sqrt(across ** 2 + np.maximum(lateral - half[nearest], 0.0) ** 2)
+        out[lo:lo + _QUERY_CHUNK][near] = _plane_distance(at[near], nearest[near], cent, normal, half)
     return out
+
+
+def _plane_distance(at: np.ndarray, nearest: np.ndarray, cent, normal, half) -> np.ndarray:
+    """Distance from each point ``at`` to the plane of its element ``nearest``, continued beyond its half-size."""
+    offset = at - cent[nearest]
+    across = np.abs(np.einsum("ij,ij->i", offset, normal[nearest]))
+    lateral = np.sqrt(np.maximum(np.einsum("ij,ij->i", offset, offset) - across ** 2, 0.0))
+    return np.sqrt(across ** 2 + np.maximum(lateral - half[nearest], 0.0) ** 2)
 
 
 def _maybe_near(points: np.ndarray, centres: np.ndarray, reach: float) -> np.ndarray:
@@ -301,6 +311,24 @@ def _signed_distance(points: np.ndarray, values: np.ndarray, geometry: _ContourG
     than ``bound`` get NaN. ``compact`` builds the search trees with nodes shrunk to their
     points (faster for points far off the contour; equidistant elements may resolve otherwise).
     """
+    (cent, normal, half), far_set = _search_sets(geometry, plane_axes)
+    dist = np.full(points.shape[0], np.nan)
+    close = (values > near_band) & (values < 1.0 - near_band)
+    rows = np.flatnonzero(close)
+    dist[rows] = _nearest_plane_distance(points, rows, cent, normal, half, bound, compact)
+    rows = np.flatnonzero(~close)
+    dist[rows] = _nearest_plane_distance(points, rows, *far_set, bound, compact)
+    np.negative(dist, out=dist, where=~(values > level))
+    return dist
+
+
+def _search_sets(geometry: _ContourGeometry, plane_axes) -> tuple[tuple, tuple]:
+    """The elements (centroids, normals, half-sizes) the close rows search, and those the far rows search.
+
+    The far rows' set is thinned to about 2000 elements, their half-sizes at least the thinned
+    spacing (see :func:`_signed_distance`); it is the close rows' own set when there are fewer
+    than 4000.
+    """
     axes = list(plane_axes)
     contour = geometry.contour
     cent = geometry.centroids[:, axes]
@@ -309,21 +337,105 @@ def _signed_distance(points: np.ndarray, values: np.ndarray, geometry: _ContourG
     half = geometry.halves
     if half is None:
         half = 0.5 * (sizes if contour.dimension == 2 else np.sqrt(sizes))
+    stride = max(1, sizes.size // _THIN_TO)
+    if stride == 1:
+        return (cent, normal, half), (cent, normal, half)
+    thin = slice(0, None, stride)
+    spacing = (sizes.sum() / len(cent[thin])) ** (1.0 / (contour.dimension - 1))
+    return (cent, normal, half), (cent[thin], normal[thin], np.maximum(half[thin], spacing))
+
+
+def _centre_reach(points: np.ndarray, centres) -> float:
+    """The largest distance from an added centre to one of its corners (:class:`SplitCentres` ``centres``)."""
+    first, corners, offsets = centres
+    reach = 0.0
+    n = offsets.size - 1
+    for lo in range(0, n, _QUERY_CHUNK):
+        hi = min(lo + _QUERY_CHUNK, n)
+        own = np.repeat(points[first + lo:first + hi], np.diff(offsets[lo:hi + 1]), axis=0)
+        offset = points[corners[offsets[lo]:offsets[hi]]] - own
+        reach = max(reach, float(np.einsum("ij,ij->i", offset, offset).max(initial=0.0)))
+    return float(np.sqrt(reach))
+
+
+def _centre_split_distance(points: np.ndarray, values: np.ndarray, wanted: np.ndarray, centres,
+                           geometry: _ContourGeometry, plane_axes, level: float, bound: float, reach: float,
+                           near_band: float = 0.01) -> np.ndarray:
+    """Signed distances at the ``wanted`` points of a mesh whose points from ``centres.first`` on are
+    centres a reader added (:class:`phasegauge.model.polyhedra.SplitCentres`); NaN elsewhere and
+    beyond ``bound``.
+
+    The mesh's own points (the centres' corners among them) are searched for their 3 nearest
+    elements (by centroid), in the sets :func:`_signed_distance` searches (close rows the whole
+    set, far rows the thinned one), each point by its own value and each centre's corners by the
+    centre's; a point's own distance is to the first of them, as :func:`_signed_distance` gives
+    it. An added centre is not searched: it is measured to the plane of the nearest (by centroid)
+    of its corners' candidates, which is the search's own element whenever that element is among
+    them (at 98-99 % of the centres on jittered polyhedra, see benchmarks/RESULTS.md, "Twelfth
+    round: the added centres' distances") and otherwise a near neighbour of it. With one element
+    per crossed whole cell (:func:`_whole_cell_pieces`) the centres keep the search's accuracy
+    against a sphere; with several elements a cell (the contour's own triangles) 3 candidates a
+    corner are too few (the search's element at about two in three centres). ``reach`` is at
+    least the largest distance from a centre to one of its corners: the corners search up to
+    ``bound + reach``, so that any element within ``bound`` of a centre is found among its
+    corners' candidates whenever a search without bound would find it. About four in five of the
+    points the widths search on polyhedra are centres.
+    """
+    from scipy.spatial import cKDTree
+
+    first, corners, offsets = centres
+    close_set, far_set = _search_sets(geometry, plane_axes)
     dist = np.full(points.shape[0], np.nan)
     close = (values > near_band) & (values < 1.0 - near_band)
-    rows = np.flatnonzero(close)
-    dist[rows] = _nearest_plane_distance(points, rows, cent, normal, half, bound, compact)
-    rows = np.flatnonzero(~close)
-    stride = max(1, sizes.size // 2000)
-    if stride > 1:
-        thin = slice(0, None, stride)
-        spacing = (sizes.sum() / len(cent[thin])) ** (1.0 / (contour.dimension - 1))
-        half_thin = np.maximum(half[thin], spacing)
-        dist[rows] = _nearest_plane_distance(points, rows, cent[thin], normal[thin], half_thin, bound, compact)
-    else:
-        dist[rows] = _nearest_plane_distance(points, rows, cent, normal, half, bound, compact)
+    ids = np.flatnonzero(wanted[first:])  # the wanted centres, numbered among the centres
+    passes = [(None, close_set)] if far_set[0] is close_set[0] else [(close, close_set), (~close, far_set)]
+    for cls, (cent, normal, half) in passes:
+        own = wanted[:first] if cls is None else wanted[:first] & cls[:first]
+        picked = ids if cls is None else ids[cls[first + ids]]
+        need = own.copy()
+        need[corners[_segments(offsets, picked)]] = True
+        rows = np.flatnonzero(need)
+        tree = cKDTree(cent, leafsize=64, balanced_tree=False)
+        found = np.empty((rows.size, _CANDIDATES), dtype=np.intp)
+        for lo in range(0, rows.size, _QUERY_CHUNK):
+            at = points[rows[lo:lo + _QUERY_CHUNK]]
+            # (fewer than k found: the index cent.shape[0] and an infinite distance)
+            far, nearest = tree.query(at, k=_CANDIDATES, distance_upper_bound=bound + reach)
+            found[lo:lo + at.shape[0]] = nearest
+            mine = np.flatnonzero(own[rows[lo:lo + _QUERY_CHUNK]] & (far[:, 0] < bound))
+            dist[rows[lo + mine]] = _plane_distance(at[mine], nearest[mine, 0], cent, normal, half)
+        slot = np.zeros(first, dtype=np.intp)
+        slot[rows] = np.arange(rows.size)
+        # each corner's candidates' centroids, k x dim coordinates a row (none found: at infinity)
+        k, dim = _CANDIDATES, cent.shape[1]
+        table = np.concatenate([cent, np.full((1, dim), np.inf)])[found].reshape(rows.size, k * dim)
+        sizes = offsets[picked + 1] - offsets[picked]
+        for size in np.unique(sizes):  # centres of as many corners at a time: their candidates a row each
+            group = picked[sizes == size]
+            for lo in range(0, group.size, _CENTRE_CHUNK):
+                which = group[lo:lo + _CENTRE_CHUNK]
+                pairs = slot[corners[offsets[which][:, None] + np.arange(size)]]  # (centres, corners)
+                at = points[first + which]
+                offset = table[pairs].reshape(which.size, size * k, dim)
+                offset -= at[:, None, :]
+                far = np.einsum("ijk,ijk->ij", offset, offset)
+                best = np.argmin(far, axis=1)  # the first nearest of each centre's candidates
+                keep = np.flatnonzero(far[np.arange(which.size), best] < bound * bound)
+                best = best[keep]
+                nearest = found[pairs[keep, best // k], best % k]
+                dist[first + which[keep]] = _plane_distance(at[keep], nearest, cent, normal, half)
     np.negative(dist, out=dist, where=~(values > level))
     return dist
+
+
+def _segments(offsets: np.ndarray, which: np.ndarray) -> np.ndarray:
+    """Positions ``offsets[j]:offsets[j + 1]`` of every ``j`` of ``which``, one after another."""
+    starts = offsets[which]
+    counts = offsets[which + 1] - starts
+    total = int(counts.sum())
+    if total == 0:
+        return np.zeros(0, dtype=np.int64)
+    return np.repeat(starts - np.concatenate([[0], np.cumsum(counts)[:-1]]), counts) + np.arange(total)
 
 
 def _vertex_distances(split: SimplexSplit, wanted: np.ndarray, geometry: _ContourGeometry, plane_axes,

@@ -27,7 +27,9 @@ from ..model._split_tables import TABLE
 from ..model.corners import corner_sum
 from ..model.mesh import Mesh
 from ..model.simplices import SimplexSplit, grid_corner_steps, split_cells
-from ._signed_distance import _ContourGeometry, _signed_distance, _vertex_distances, _whole_cell_pieces
+from ..model.polyhedra import SPLIT_CENTRES
+from ._signed_distance import (_centre_reach, _centre_split_distance, _ContourGeometry, _signed_distance,
+                               _vertex_distances, _whole_cell_pieces)
 
 #: cells whose corners all lie within this of 0 or of 1 are left out of the width integrals
 _TAIL = 1e-6
@@ -237,11 +239,20 @@ class _SplitBand:
         """Signed distances at the known vertices (NaN elsewhere and beyond ``bound``).
 
         On a mesh a reader split (polyhedra: ``mesh.cell_parents``) the search runs against one
-        element per crossed whole cell (:func:`._signed_distance._cell_pieces`); other meshes
-        search the contour's own elements.
+        element per crossed whole cell (:func:`._signed_distance._cell_pieces`), and the centres
+        the reader added (their corner lists handed over as ``mesh.memo(SPLIT_CENTRES)``) are
+        measured against their corners' 3 nearest elements instead of searched
+        (:func:`._signed_distance._centre_split_distance`); other meshes search the contour's own
+        elements.
         """
-        if self.mesh.cell_parents is not None:
-            geometry = _whole_cell_pieces(self.mesh, geometry)
+        mesh = self.mesh
+        if mesh.cell_parents is not None:
+            geometry = _whole_cell_pieces(mesh, geometry)
+            centres = mesh.memo(SPLIT_CENTRES, lambda: None, keep=False)
+            if centres is not None and self.active is not None:
+                reach = mesh.memo("split_centre_reach", lambda: _centre_reach(mesh.coordinates, centres))
+                return _centre_split_distance(mesh.coordinates, self.split.point_values, self.known, centres,
+                                              geometry, mesh.plane_axes, level, bound, reach)
         return _vertex_distances(self.split, self.known, geometry, self.mesh.plane_axes, level, bound)
 
     def moments(self, dist: np.ndarray) -> tuple[float, float, float]:

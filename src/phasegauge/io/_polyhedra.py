@@ -228,11 +228,17 @@ class PolyhedralRead:
 
     def keep_split(self, mesh) -> None:
         """Keep the split with ``mesh`` (for the next steps of a series), and give the mesh the
-        tetrahedra's face neighbours when its cells are the split's tetrahedra themselves."""
+        tetrahedra's face neighbours when its cells are the split's tetrahedra themselves, and the
+        added centres' corner lists when its points are the split's points and centres in order
+        (no points merged, none added beside them)."""
         from ..model._faces import SPLIT_FACES
+        from ..model.polyhedra import SPLIT_CENTRES, SplitCentres
 
         split = self.split
         mesh.memo(self._KEY, lambda: (self.signature, split))
+        if (split.n_centres and mesh.point_merge is None
+                and mesh.n_points == split.n_points + split.n_centres):
+            mesh.memo(SPLIT_CENTRES, lambda: SplitCentres(split.n_points, split.centre_points, split.centre_offsets))
         if (split.neighbours is not None and len(mesh.blocks) == 1
                 and mesh.blocks[0].connectivity is split.tetra):
             mesh.memo(SPLIT_FACES, lambda: split.neighbours)

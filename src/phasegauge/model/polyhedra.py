@@ -35,6 +35,7 @@ References
 from __future__ import annotations
 
 from dataclasses import dataclass
+from typing import NamedTuple
 
 import numpy as np
 
@@ -43,7 +44,11 @@ from ._grouping import _bits, group_columns, index_dtype
 from ._split_neighbours import edge_twins, ordered_rows, sorted_with_places, split_neighbours
 from .cells import FACES
 
-__all__ = ["PolyhedraSplit", "split_polyhedra", "cell_face_stream"]
+__all__ = ["PolyhedraSplit", "split_polyhedra", "cell_face_stream", "SPLIT_CENTRES", "SplitCentres"]
+
+#: ``Mesh.memo`` key of the added centres' corner lists, set by a reader that split the mesh's cells
+#: (:class:`SplitCentres`; absent on other meshes)
+SPLIT_CENTRES = "split_centres"
 
 _FIX_FACES = ("write each polyhedron as a closed surface: every edge shared by exactly two of its faces, "
               "all faces listed with outward (or all with inward) normals")
@@ -117,6 +122,19 @@ class PolyhedraSplit:
             counts = np.diff(offsets[lo:hi + 1])
             np.divide(sums, counts.reshape((-1,) + (1,) * (v.ndim - 1)), out=out[lo:hi])
         return out
+
+
+class SplitCentres(NamedTuple):
+    """The corners of the centres a split added to a mesh's points (``Mesh.memo(SPLIT_CENTRES)``).
+
+    Centre ``j`` is mesh point ``first + j``, the mean of the mesh points
+    ``corners[offsets[j]:offsets[j + 1]]`` (all numbered below ``first``); every mesh point from
+    ``first`` on is a centre. The arrays are the split's own (:class:`PolyhedraSplit`).
+    """
+
+    first: int
+    corners: np.ndarray
+    offsets: np.ndarray
 
 
 def cell_face_stream(cell_type: str, connectivity: np.ndarray) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
