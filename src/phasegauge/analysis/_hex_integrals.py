@@ -391,18 +391,19 @@ class _HexBand:
         self.total_gradient = self.cells.total_gradient + (self.rest.total_gradient if self.rest else 0.0)
         self._rest_dist = None
 
-    def distances(self, geometry: _ContourGeometry, level: float, bound: float) -> np.ndarray:
-        """Signed distances at the mesh points the cells need (NaN elsewhere and beyond ``bound``)."""
+    def distances(self, geometry: _ContourGeometry, level: float, bound: float, threads: int = 1) -> np.ndarray:
+        """Signed distances at the mesh points the cells need (NaN elsewhere and beyond ``bound``),
+        each search on up to ``threads`` threads."""
         geometry = _whole_cell_pieces(self.mesh, geometry)
         need = self.cells.need
         dist = np.full(self.mesh.n_points, np.nan)
         if self.rest is not None:
-            self._rest_dist = self.rest.distances(geometry, level, bound)
+            self._rest_dist = self.rest.distances(geometry, level, bound, threads)
             dist = self._rest_dist[:self.mesh.n_points].copy()
             need = need & ~np.isfinite(dist)
         used = np.flatnonzero(need)
         dist[used] = _signed_distance(self.mesh.coordinates[used], self.values[used], geometry,
-                                      self.mesh.plane_axes, level, bound)
+                                      self.mesh.plane_axes, level, bound, threads=threads)
         return dist
 
     def moments(self, dist: np.ndarray) -> tuple[float, float, float]:

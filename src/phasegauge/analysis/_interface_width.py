@@ -240,7 +240,7 @@ def _nan_metrics() -> dict:
 
 def interface_metrics(mesh: Mesh, indicator, *, level: float = 0.5, contour: Contour | None = None,
                       extremes: CornerExtremes | None = None, max_samples: int = 2000,
-                      return_distances: bool = False, plateaus=None):
+                      return_distances: bool = False, plateaus=None, threads: int = 1):
     """Size and width of the interface, by four independent estimators.
 
     Parameters
@@ -270,6 +270,8 @@ def interface_metrics(mesh: Mesh, indicator, *, level: float = 0.5, contour: Con
         ``(low, high, tail)`` as :func:`bulk_plateaus` gives them for the same point values
         and ``level`` (a caller that also labels droplets computes them once); None:
         computed here.
+    threads : int
+        Threads of the signed-distance searches (the same numbers on any number).
 
     Returns
     -------
@@ -363,7 +365,7 @@ def interface_metrics(mesh: Mesh, indicator, *, level: float = 0.5, contour: Con
     """
     max_samples = _check_samples(max_samples)
     work = _Work(mesh, indicator, level, contour, extremes, plateaus)
-    metrics, _, distances = _metrics(work, max_samples)
+    metrics, _, distances = _metrics(work, max_samples, threads)
     return (metrics, distances) if return_distances else metrics
 
 
@@ -407,7 +409,7 @@ def interface_profile_table(mesh: Mesh, indicator, *, level: float = 0.5, contou
     return _metrics(work, max_samples)[1]
 
 
-def _metrics(work: _Work, max_samples: int):
+def _metrics(work: _Work, max_samples: int, threads: int = 1):
     mesh, contour, integrals = work.mesh, work.contour, work.integrals
     geometry = _ContourGeometry(contour)
     size = geometry.size
@@ -426,7 +428,7 @@ def _metrics(work: _Work, max_samples: int):
     # threshold-free eps, and would widen the range that then picks up more of that cloud)
     band_eps = min(eps, width / WIDTH_PER_EPS) if np.isfinite(eps) else width / WIDTH_PER_EPS
     bound = max(_MOMENT_RANGE * band_eps, 4.0 * h_interface) if np.isfinite(band_eps) else np.inf
-    dist = integrals.distances(geometry, work.width_level, bound)
+    dist = integrals.distances(geometry, work.width_level, bound, threads)
     m0, m1, m2 = integrals.moments(dist)
     variance = m2 / m0 - (m1 / m0) ** 2 if m0 > 0 else float("nan")
     # cells of the contour

@@ -235,8 +235,9 @@ class _SplitBand:
                 if keep.any():
                     yield [rows[:, i][keep] for i in range(rows.shape[1])]
 
-    def distances(self, geometry: _ContourGeometry, level: float, bound: float) -> np.ndarray:
-        """Signed distances at the known vertices (NaN elsewhere and beyond ``bound``).
+    def distances(self, geometry: _ContourGeometry, level: float, bound: float, threads: int = 1) -> np.ndarray:
+        """Signed distances at the known vertices (NaN elsewhere and beyond ``bound``), each search
+        on up to ``threads`` threads.
 
         On a mesh a reader split (polyhedra: ``mesh.cell_parents``) the search runs against one
         element per crossed whole cell (:func:`._signed_distance._cell_pieces`), and the centres
@@ -252,8 +253,9 @@ class _SplitBand:
             if centres is not None and self.active is not None:
                 reach = mesh.memo("split_centre_reach", lambda: _centre_reach(mesh.coordinates, centres))
                 return _centre_split_distance(mesh.coordinates, self.split.point_values, self.known, centres,
-                                              geometry, mesh.plane_axes, level, bound, reach)
-        return _vertex_distances(self.split, self.known, geometry, self.mesh.plane_axes, level, bound)
+                                              geometry, mesh.plane_axes, level, bound, reach, threads=threads)
+        return _vertex_distances(self.split, self.known, geometry, self.mesh.plane_axes, level, bound,
+                                 threads=threads)
 
     def moments(self, dist: np.ndarray) -> tuple[float, float, float]:
         """(m0, m1, m2) of :func:`_moment_sums` over all simplices."""
@@ -397,7 +399,7 @@ class _GridBand:
         self.known |= spread.ravel()
         self.total_gradient = float(self.weights.sum())
 
-    def distances(self, geometry: _ContourGeometry, level: float, bound: float) -> np.ndarray:
+    def distances(self, geometry: _ContourGeometry, level: float, bound: float, threads: int = 1) -> np.ndarray:
         grid = self.grid
         wanted = np.flatnonzero(self.known)
         index = np.unravel_index(wanted, grid.point_shape)
@@ -406,7 +408,7 @@ class _GridBand:
             points[:, d] = axis_values[index[d]]
         dist = np.full(self.values.shape[0], np.nan)
         dist[wanted] = _signed_distance(points, self.values[wanted], geometry, self.mesh.plane_axes, level,
-                                        bound)
+                                        bound, threads=threads)
         return dist
 
     def moments(self, dist: np.ndarray) -> tuple[float, float, float]:

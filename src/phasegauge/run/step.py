@@ -170,8 +170,9 @@ def analyse_step(step, options, *, contour_dir: str | None = None, reported_mesh
     reported_meshes : set of str, optional
         Signatures of meshes whose quality was already warned about (updated).
     threads : int
-        Threads for the mesh work that splits into independent parts (a new mesh's geometry and
-        faces, the planes of a section operator); the result is the same bit for bit on any number.
+        Threads for the work that splits into independent parts (a new mesh's geometry and faces,
+        the planes of a section operator, the widths' distance searches); the result is the same
+        bit for bit on any number.
     """
     from ..analysis import conservation, droplets as droplets_mod, interface, mixing
 
@@ -214,7 +215,8 @@ def analyse_step(step, options, *, contour_dir: str | None = None, reported_mesh
     if "interface" in options.analyses:
         # a mixture run keeps the distances the widths measured: its bulk cells need few more
         widths = interface.interface_metrics(mesh, ind, level=options.level, contour=contour, extremes=extremes,
-                                             return_distances=options.model is not None, plateaus=plateaus)
+                                             return_distances=options.model is not None, plateaus=plateaus,
+                                             threads=threads)
         if options.model is not None:
             widths, measured = widths
         m.update(widths)

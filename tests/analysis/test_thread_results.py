@@ -1,5 +1,6 @@
-"""The section operator cut on several threads: the same arrays as on one, and the same profile as
-pyvista's plane slice (the outside reference of tests/analysis/test_sections_operator.py)."""
+"""Work on several threads gives what one thread gives, bit for bit: the section operator, a new
+mesh's geometry and faces, the split plan, the widths' distance searches; and the threaded profile
+matches pyvista's plane slice (the outside reference of tests/analysis/test_sections_operator.py)."""
 
 import dataclasses
 
@@ -103,3 +104,33 @@ def test_split_plan_is_the_same_on_any_number_of_threads(kind, monkeypatch):
             if a is not None:
                 np.testing.assert_array_equal(a.coned, b.coned)
                 np.testing.assert_array_equal(a.centred, b.centred)
+
+
+@pytest.mark.parametrize("kind", ["hexahedron", "tetra", "grid", "polyhedron"])
+def test_widths_and_distances_are_the_same_on_any_number_of_threads(kind, tmp_path):
+    # the signed-distance searches (scipy's cKDTree.query with workers) on 1 and 3 threads; the
+    # widths themselves are checked against the analytic sphere in test_hex_integrals.py and
+    # test_polyhedral_distances.py
+    from phasegauge.analysis.interface import interface_metrics
+    from phasegauge.io import Series
+    from phasegauge.meshgen import to_polyhedral_grid
+
+    n = 14
+    mesh = grid_mesh((n, n, n), kind="hexahedron" if kind in ("polyhedron", "grid") else kind,
+                     jitter=0.0 if kind == "grid" else 0.2, seed=4)
+
+    def profile(X):
+        return 0.5 * (1 + np.tanh((0.3 - np.linalg.norm(X - 0.5, axis=1)) / (2 * 0.03)))
+
+    if kind == "polyhedron":
+        path = str(tmp_path / "poly.vtu")
+        to_polyhedral_grid(mesh, point_data={"c": profile(mesh.points)}).save(path)
+        mesh = Series(path).read(0).mesh
+    c = profile(mesh.coordinates)
+    one, d_one = interface_metrics(mesh, c, return_distances=True, threads=1)
+    three, d_three = interface_metrics(mesh, c, return_distances=True, threads=3)
+    assert one.keys() == three.keys()
+    for key in one:
+        assert one[key] == three[key] or (np.isnan(one[key]) and np.isnan(three[key])), key
+    np.testing.assert_array_equal(d_one.point, d_three.point)
+    assert np.isfinite(d_one.point).sum() > 100  # distances were searched
