@@ -61,8 +61,29 @@ def ordered_map(function, items, *, threads: int = 1):
     if threads <= 1 or len(items) <= 1:
         yield from map(function, items)
         return
-    with ThreadPoolExecutor(min(threads, len(items)), thread_name_prefix="phasegauge") as pool:
-        yield from pool.map(function, items)
+    try:
+        with ThreadPoolExecutor(min(threads, len(items)), thread_name_prefix="phasegauge") as pool:
+            yield from pool.map(function, items)
+    finally:
+        _release_thread_arenas()
+
+
+def _release_thread_arenas() -> None:
+    """Give the memory the threads freed back to the system, where the C library is glibc.
+
+    glibc gives each thread that allocates an arena of its own and keeps what is freed there for
+    later use: the memory a thread's arrays held stays counted in the process (about 40 MB more at
+    the peak of a 0.25M-cell run). ``malloc_trim(0)`` returns the free pages of every arena;
+    elsewhere nothing is done.
+    """
+    import ctypes
+
+    try:
+        trim = getattr(ctypes.CDLL(None), "malloc_trim", None)  # the symbols this process has loaded
+    except OSError:
+        trim = None
+    if trim is not None:
+        trim(0)
 
 
 def prepare_mesh(mesh, *, threads: int = 1, split: bool = True) -> None:
