@@ -3,7 +3,6 @@ run --strict."""
 
 import os
 
-import numpy as np
 import pytest
 from click.testing import CliRunner
 

@@ -183,7 +183,7 @@ def inspect(path, as_json, scan, sort_by_time):
 @click.option("--workers", "-j", type=int, default=1, show_default=True, help="Local worker processes.")
 @click.option("--threads", type=int, default=None,
               help="Threads of each process for mesh work [default: the CPUs it may use, shared among the "
-                   "workers; PHASEGAUGE_THREADS caps them].")
+                   "workers; PHASEGAUGE_THREADS caps them; one on a Dask cluster's workers].")
 @click.option("--scheduler", default=None, help="Dask scheduler address (tcp://host:8786), or 'local'.")
 @click.option("--resume", is_flag=True, help="Finish an interrupted run in OUT, reusing finished steps.")
 @click.option("--overwrite", is_flag=True, help="Replace an existing output folder.")

@@ -125,8 +125,6 @@ def test_ball_volume_on_polyhedra(meshes, name):
     found = label_droplets(split, c)
     row = found.table.iloc[0]
     assert found.count == 1
-    volume = abs(np.linalg.det(SHEAR)) if name == "sheared" else 1.0  # det = 1: the sheared box keeps its volume
-    assert volume == pytest.approx(1.0)
     assert row["volume"] == pytest.approx(_ball_volume(), rel=5e-3)
     # the whole cells' c dV is the pieces' c dV, summed
     np.testing.assert_allclose(found.weights.sum(), np.sum(c * split.cell_measures), rtol=1e-12)

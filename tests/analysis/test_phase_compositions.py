@@ -352,3 +352,32 @@ def test_interface_distance_periodic_without_reach_searches_the_copies_only_wher
     np.testing.assert_array_equal(wrapped, every)
     np.testing.assert_allclose(np.abs(wrapped), exact, atol=1e-4)
     assert searched[0] == mesh.n_cells and 0 < searched[1] < 0.5 * mesh.n_cells
+
+
+def test_interface_distance_periodic_sphere_across_every_face_is_the_search_of_every_cell(monkeypatch):
+    # a sphere of radius 0.3 about (0.1, 0.5, 0.5), periodic in x, y and z: its copies a period away
+    # reach into the cell from the low x face, with interfaces oblique to the faces (a copy's plane
+    # is nearer than its offset along the axis), so the copies' half-sizes must widen the face bound.
+    # Bit-identical to searching every cell against the contour and against its copies, and within
+    # the mesh's resolution of the distance to the nearest image sphere, |r - R| [analytic]
+    from phasegauge.analysis import _phase_compositions as module
+    from phasegauge.analysis._signed_distance import _ContourGeometry, _signed_distance
+    from phasegauge.analysis.interface import find_interface
+
+    mesh = grid_mesh((12, 12, 12), kind="tetra")
+    shifts = np.array([[i, j, k] for i in (-1, 0, 1) for j in (-1, 0, 1) for k in (-1, 0, 1)], dtype=float)
+
+    def nearest_image(X):
+        return np.min(np.linalg.norm(X[:, None, :] - (np.array([0.1, 0.5, 0.5]) + shifts)[None], axis=2), axis=1)
+
+    c_point = 0.5 * (1 + np.tanh((0.3 - nearest_image(mesh.coordinates)) / 0.04))
+    c_cell, contour = mesh.point_to_cell(c_point), find_interface(mesh, c_point)
+    points = mesh.cell_centroids
+    own = np.abs(_signed_distance(points, c_cell, _ContourGeometry(contour), contour.plane_axes, 0.5, compact=True))
+    copies = _ContourGeometry(module._periodic_images(mesh, contour, ("x", "y", "z"), np.inf))
+    across = np.abs(_signed_distance(points, c_cell, copies, contour.plane_axes, 0.5, compact=True))
+    every = np.where(c_cell > 0.5, 1.0, -1.0) * np.fmin(own, across)
+    wrapped = module.interface_distance(mesh, c_cell, contour, periodic=("x", "y", "z"))
+    np.testing.assert_array_equal(wrapped, every)
+    exact = np.abs(nearest_image(points) - 0.3)
+    assert np.median(np.abs(np.abs(wrapped) - exact)[exact < 2.0 / 12]) < 0.25 / 12  # near the sphere

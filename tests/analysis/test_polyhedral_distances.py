@@ -120,3 +120,39 @@ def test_sphere_on_polyhedra_added_centres_measured_from_their_corners(tmp_path,
     assert np.allclose(split[rows[corner]], searched[corner], rtol=0, atol=1e-12 * h, equal_nan=True)
     same = np.isclose(split[rows[~corner]], searched[~corner], rtol=0, atol=1e-12 * h)
     assert same.mean() > 0.97
+
+
+def test_polyhedra_with_a_merged_point_search_every_point(tmp_path):
+    # a file with one point written twice: the reader merges it, the centres' numbers no longer
+    # follow the split's, so no corner lists are handed over and every point the widths need is
+    # searched: the same distances as a search of each [the search is checked against the
+    # sphere's |r - R| in test_sphere_on_polyhedra_distances_and_widths]
+    from phasegauge.analysis._signed_distance import _signed_distance
+    from phasegauge.model.polyhedra import SPLIT_CENTRES
+
+    n = 12
+    eps = 4.0 / n / WIDTH_PER_EPS
+
+    def profile(X):
+        return 0.5 * (1 + np.tanh((RADIUS - np.linalg.norm(X - 0.5, axis=1)) / (2 * eps)))
+
+    hexa = grid_mesh((n, n, n), kind="hexahedron", jitter=0.2, seed=5)
+    grid = to_polyhedral_grid(hexa, point_data={"c": profile(hexa.points)})
+    twice = grid.copy()
+    twice.points = np.vstack([grid.points, grid.points[:1]])
+    twice.point_data["c"] = np.concatenate([grid.point_data["c"], grid.point_data["c"][:1]])
+    path = str(tmp_path / "twice.vtu")
+    twice.save(path)
+    from phasegauge.errors import MeshWarning
+
+    with pytest.warns(MeshWarning, match="1 duplicate points merged"):
+        mesh = Series(path).read(0).mesh
+    assert mesh.cell_parents is not None
+    assert mesh.memo(SPLIT_CENTRES, lambda: None, keep=False) is None
+    c = profile(mesh.coordinates)
+    _, measured = interface_metrics(mesh, c, return_distances=True)
+    rows = np.flatnonzero(np.isfinite(measured.point))
+    assert rows.size > 100
+    geometry = _whole_cell_pieces(mesh, _ContourGeometry(measured.geometry.contour))
+    searched = _signed_distance(mesh.coordinates[rows], c[rows], geometry, mesh.plane_axes, 0.5, measured.bound)
+    np.testing.assert_array_equal(measured.point[rows], searched)

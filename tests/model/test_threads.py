@@ -28,3 +28,4 @@ def test_check_threads_refuses_what_is_no_count(bad):
 
 def test_check_threads_takes_counts():
     assert check_threads(3) == 3 and check_threads("4") == 4
+

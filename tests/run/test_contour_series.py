@@ -1,6 +1,5 @@
 """Contour files carry their time and step, and a ``time,path`` listing beside them reads as a series."""
 
-import os
 
 import numpy as np
 import pytest

@@ -3,9 +3,7 @@ command line, a recipe and the Python API, and the old names still give it (with
 
 import json
 import os
-import re
 import shlex
-import warnings
 
 import numpy as np
 import pandas as pd

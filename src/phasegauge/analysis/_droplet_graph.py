@@ -14,7 +14,7 @@ from scipy.spatial import cKDTree
 
 from ..model._faces import SPLIT_FACES, pairs_as_neighbours
 from ..model._grouping import unique_ints
-from ..model._whole_cells import WholeCells
+from ..model._whole_cells import WholeCells, whole_cell_count
 from ..model.mesh import Mesh
 
 __all__ = ["periodic_pairs", "neighbour_table", "pieces", "join_periodic"]
@@ -33,8 +33,8 @@ def periodic_pairs(mesh: Mesh, axis: int, *, whole: bool = False):
 
 
 def _whole_periodic_pairs(mesh: Mesh, axis: int):
-    pairs, lo, period = periodic_pairs(mesh, axis)
-    n = int(mesh.cell_parents.max()) + 1 if mesh.cell_parents.size else 1
+    pairs, lo, period = _find_periodic_pairs(mesh, axis)  # the pieces' pairs: not kept, read once here
+    n = max(whole_cell_count(mesh), 1)
     key = unique_ints(mesh.cell_parents[pairs[:, 0]].astype(np.int64) * n + mesh.cell_parents[pairs[:, 1]])
     return np.stack([key // n, key % n], axis=1), lo, period
 

@@ -147,11 +147,10 @@ def interface_distance(mesh, c_cell, contour, *, level=0.5, reach=np.inf, measur
         slack = max(float(half.max(initial=0.0)) for half in halves)
         # (a margin above round-off in the coordinates; NaN, not searched, is searched)
         margin = 1e-9 * float(np.abs(bounds).max())
-        keeps = face - slack > np.abs(dist) * (1 + 1e-9) + margin
-        if limited:  # only cells within reach of a copy can be near
-            keeps |= face > reach
+        keeps = face - slack > dist + margin  # (dist >= 0 here, or NaN)
         rows = np.flatnonzero(~keeps)
-        if limited:
+        if limited:  # only cells within reach of a copy can be near
+            rows = rows[face[rows] <= reach]
             rows = rows[_maybe_near_cells(mesh, rows, copied.centroids[:, list(contour.plane_axes)], reach)]
         if rows.size:
             across = np.abs(_signed_distance(points[rows], c[rows], copied, contour.plane_axes, level,

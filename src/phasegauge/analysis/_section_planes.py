@@ -10,7 +10,6 @@ interpolates its fields along the cut edges (:mod:`._cross_sections` sums the mo
 
 from __future__ import annotations
 
-import itertools
 import queue
 from dataclasses import dataclass, replace
 from types import MappingProxyType
@@ -20,7 +19,7 @@ import numpy as np
 from ..model._grouping import _bits, _sort_order, index_dtype
 from ..model.corners import cell_extent, corner_mean
 from ..model.mesh import Mesh
-from ..model.simplices import needs_centres, split_cells
+from ..model.simplices import _split_plan, needs_centres, split_cells
 from ..model._threads import ordered_map
 
 
@@ -353,12 +352,12 @@ def _build_sections(mesh: Mesh, axis: int, positions: np.ndarray, lower_ends: np
             return pieces[:1] + (None,) + pieces[2:]
         return pieces[:1] + (pieces[1].astype(index_dtype(mesh.n_cells), copy=False),) + pieces[2:]
 
-    planes = list(zip(positions, lower_ends))
-    # the first plane here: it makes what the mesh caches for every plane (the split plan, the
-    # face numbers), which the threads then only read
-    cut_planes = itertools.chain([cut(planes[0])] if planes else [],
-                                 ordered_map(cut, planes[1:], threads=threads))
-    for m, parent, start, end, t, plane_centres, edges in cut_planes:
+    # what the mesh caches for every plane (the split plan, and the face numbers it reads) is made
+    # here, before the threads: they only read it
+    if dim == 3:
+        _split_plan(mesh)
+    for m, parent, start, end, t, plane_centres, edges in ordered_map(cut, list(zip(positions, lower_ends)),
+                                                                      threads=threads):
         cut_edges, first = edges
         del edges
         # the centres numbered after those of earlier planes: a strictly increasing map of the

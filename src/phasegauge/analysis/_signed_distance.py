@@ -7,6 +7,7 @@ from typing import NamedTuple
 import numpy as np
 
 from ..model._centroids import cell_centroids_of
+from ..model._grouping import ranges
 from ..model.contour import Contour
 from ..model.simplices import SimplexSplit
 
@@ -27,16 +28,7 @@ _LEAST_HALF = 0.45
 def _nearest_plane_distance(points, rows, cent, normal, half, bound, compact=False, threads=1):
     """Distance from ``points[rows]`` to the nearest element's plane (see :func:`_signed_distance`);
     each query of the tree on up to ``threads`` threads (scipy's ``workers``: the same results)."""
-    from scipy.spatial import cKDTree
-
-    # a sliding-midpoint tree (not median-balanced): about 1.5-1.9x faster queries here, since the
-    # centroids lie on a surface; equidistant centroids may resolve to another element than with a
-    # balanced tree, which moved the second moment by 3e-11 relative on a 1M-cell grid. Leaves of
-    # 64 (not 16): 1.9x faster queries from points near a dense contour (jittered hexahedra), the
-    # same elements found on the guarded triangle, tetrahedron and grid runs. Nodes shrunk to their
-    # points (compact) are built a little slower and searched 2-3x faster from points far off the
-    # surface.
-    tree = cKDTree(cent, leafsize=64, balanced_tree=False, compact_nodes=compact)
+    tree = _plane_tree(cent, compact)
     out = np.full(rows.size, np.nan)
     for lo in range(0, rows.size, _QUERY_CHUNK):  # each query is on its own: chunks change nothing
         at = points[rows[lo:lo + _QUERY_CHUNK]]
@@ -44,6 +36,22 @@ def _nearest_plane_distance(points, rows, cent, normal, half, bound, compact=Fal
         near = np.isfinite(far)
         out[lo:lo + _QUERY_CHUNK][near] = _plane_distance(at[near], nearest[near], cent, normal, half)
     return out
+
+
+def _plane_tree(cent: np.ndarray, compact: bool = False):
+    """The search tree of the elements' centroids, as every signed-distance search builds it.
+
+    A sliding-midpoint tree (not median-balanced): about 1.5-1.9x faster queries here, since the
+    centroids lie on a surface; equidistant centroids may resolve to another element than with a
+    balanced tree, which moved the second moment by 3e-11 relative on a 1M-cell grid. Leaves of
+    64 (not 16): 1.9x faster queries from points near a dense contour (jittered hexahedra), the
+    same elements found on the guarded triangle, tetrahedron and grid runs. Nodes shrunk to their
+    points (``compact``) are built a little slower and searched 2-3x faster from points far off the
+    surface.
+    """
+    from scipy.spatial import cKDTree
+
+    return cKDTree(cent, leafsize=64, balanced_tree=False, compact_nodes=compact)
 
 
 def _plane_distance(at: np.ndarray, nearest: np.ndarray, cent, normal, half) -> np.ndarray:
@@ -384,8 +392,6 @@ def _centre_split_distance(points: np.ndarray, values: np.ndarray, wanted: np.nd
     corners' candidates whenever a search without bound would find it. About four in five of the
     points the widths search on polyhedra are centres.
     """
-    from scipy.spatial import cKDTree
-
     first, corners, offsets = centres
     close_set, far_set = _search_sets(geometry, plane_axes)
     dist = np.full(points.shape[0], np.nan)
@@ -396,14 +402,16 @@ def _centre_split_distance(points: np.ndarray, values: np.ndarray, wanted: np.nd
         own = wanted[:first] if cls is None else wanted[:first] & cls[:first]
         picked = ids if cls is None else ids[cls[first + ids]]
         need = own.copy()
-        need[corners[_segments(offsets, picked)]] = True
+        need[corners[ranges(offsets, picked)]] = True
         rows = np.flatnonzero(need)
-        tree = cKDTree(cent, leafsize=64, balanced_tree=False)
+        tree = _plane_tree(cent)  # as _nearest_plane_distance's: the corners find the search's elements
         found = np.empty((rows.size, _CANDIDATES), dtype=np.intp)
         for lo in range(0, rows.size, _QUERY_CHUNK):
             at = points[rows[lo:lo + _QUERY_CHUNK]]
             # (fewer than k found: the index cent.shape[0] and an infinite distance)
-            far, nearest = tree.query(at, k=_CANDIDATES, distance_upper_bound=bound + reach, workers=threads)
+            # (the tree's bound is strict: the margin keeps an element at bound + reach to round-off)
+            far, nearest = tree.query(at, k=_CANDIDATES, distance_upper_bound=(bound + reach) * (1 + 1e-9),
+                                      workers=threads)
             found[lo:lo + at.shape[0]] = nearest
             mine = np.flatnonzero(own[rows[lo:lo + _QUERY_CHUNK]] & (far[:, 0] < bound))
             dist[rows[lo + mine]] = _plane_distance(at[mine], nearest[mine, 0], cent, normal, half)
@@ -429,16 +437,6 @@ def _centre_split_distance(points: np.ndarray, values: np.ndarray, wanted: np.nd
                 dist[first + which[keep]] = _plane_distance(at[keep], nearest, cent, normal, half)
     np.negative(dist, out=dist, where=~(values > level))
     return dist
-
-
-def _segments(offsets: np.ndarray, which: np.ndarray) -> np.ndarray:
-    """Positions ``offsets[j]:offsets[j + 1]`` of every ``j`` of ``which``, one after another."""
-    starts = offsets[which]
-    counts = offsets[which + 1] - starts
-    total = int(counts.sum())
-    if total == 0:
-        return np.zeros(0, dtype=np.int64)
-    return np.repeat(starts - np.concatenate([[0], np.cumsum(counts)[:-1]]), counts) + np.arange(total)
 
 
 def _vertex_distances(split: SimplexSplit, wanted: np.ndarray, geometry: _ContourGeometry, plane_axes,

@@ -41,7 +41,7 @@ from ..errors import OptionError
 from ..model.axes import AXIS_NAMES
 from ..model.mesh import Mesh
 from ..model.outline import MeshOutline
-from ..model._whole_cells import whole_cell_count
+from ..model._whole_cells import whole_cell_count, whole_cells as whole_cells_of
 from ._labelling import DropletLabels, _at_cells, _normalize_periodic
 
 __all__ = ["DropletTracker", "track_droplets", "EVENT_COLUMNS", "EVENT_KINDS"]
@@ -165,8 +165,7 @@ class DropletTracker:
             raise OptionError(f"labels refer to droplet {int(labels.max())} but the table has {n_drop} rows",
                               fix="pass the table made with these labels")
         if weights is None:
-            weights = (np.bincount(mesh.cell_parents, weights=mesh.cell_measures, minlength=n_cells) if whole_cells
-                       else mesh.cell_measures)
+            weights = whole_cells_of(mesh).cell_measures if whole_cells else mesh.cell_measures
         weights = np.asarray(weights, dtype=np.float64)
         core = np.flatnonzero(labels >= 0)
         return self.add_cells(step, time, mesh, table, core, labels[core], weights[core],

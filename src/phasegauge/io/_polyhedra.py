@@ -35,6 +35,7 @@ from functools import cached_property, partial
 import numpy as np
 
 from ..errors import MeshWarning, UnreadableFileError, UnsupportedMeshError, short_text
+from ..model._grouping import ranges
 from ._meshio_adapter import CONVEX_POINT_SET, convex_point_sets, ensure_vtk_extras, new_mesh, read_with_meshio
 
 __all__ = ["xml_holds_polyhedra", "legacy_holds_polyhedra", "read_polyhedral", "PolyhedralRead"]
@@ -128,13 +129,10 @@ def _polyhedron_faces(face_arrays: tuple, cells: np.ndarray):
     from VTK's face arrays (:func:`_face_arrays`)."""
     face_conn, face_offs, loc_conn, loc_offs = face_arrays
     per_cell = np.diff(loc_offs)[cells]
-    first = loc_offs[cells]
-    faces = np.repeat(first - np.concatenate([[0], np.cumsum(per_cell)[:-1]]), per_cell) + np.arange(per_cell.sum())
-    face_ids = loc_conn[faces]
+    face_ids = loc_conn[ranges(loc_offs, cells)]
     sizes = face_offs[face_ids + 1] - face_offs[face_ids]
     offsets = np.concatenate([[0], np.cumsum(sizes)]).astype(np.int64)
-    stream = np.repeat(face_offs[face_ids] - offsets[:-1], sizes) + np.arange(offsets[-1])
-    return face_conn[stream], offsets, np.repeat(np.arange(cells.size, dtype=np.int64), per_cell)
+    return face_conn[ranges(face_offs, face_ids)], offsets, np.repeat(np.arange(cells.size, dtype=np.int64), per_cell)
 
 
 def read_polyhedral(path: str):

@@ -69,6 +69,19 @@ def unique_ints(values: np.ndarray) -> np.ndarray:
     return s[np.concatenate([[True], s[1:] != s[:-1]])]
 
 
+def ranges(offsets: np.ndarray, which: np.ndarray) -> np.ndarray:
+    """Positions ``offsets[j]:offsets[j + 1]`` of every ``j`` of ``which``, one range after another
+    (int64): the items of rows ``which`` of a ragged table stored as ``offsets`` into one stream."""
+    starts = np.asarray(offsets[which], dtype=np.int64)
+    counts = np.asarray(offsets[np.asarray(which) + 1], dtype=np.int64) - starts
+    total = int(counts.sum())
+    if total == 0:
+        return np.zeros(0, dtype=np.int64)
+    out = np.arange(total, dtype=np.int64)
+    out += np.repeat(starts - (np.cumsum(counts) - counts), counts)
+    return out
+
+
 def index_dtype(n: int):
     """int32 for indices (or index arithmetic) below ``n`` when they fit, else int64."""
     return np.int32 if n < 2 ** 31 - 1 else np.int64

@@ -30,8 +30,9 @@ import numpy as np
 
 from ._centroids import whole_cell_centroids
 from ._faces import kept_neighbours
-from ._grouping import index_dtype, unique_ints
+from ._grouping import index_dtype, ranges, unique_ints
 from .corners import corner_extremes
+from .mesh import Mesh
 
 __all__ = ["WholeCells", "whole_cells", "whole_cell_count"]
 
@@ -209,26 +210,27 @@ class WholeCells:
         self.piece_measures = mesh.cell_measures
         self.cell_measures = np.bincount(parents, weights=self.piece_measures, minlength=n)
         self.cell_centroids = whole_cell_centroids(mesh)
-        self._sizes = self.cell_measures ** (1.0 / self.dimension)
-        self.face_pairs = _whole_pairs(mesh, parents, n)
-        self.face_neighbours = _neighbour_table(self.face_pairs, n)
+        self._sizes = mesh._whole_cell_sizes
+        self.face_neighbours = _neighbour_table(_whole_pairs(mesh, parents, n), n)
         self._piece_order, self._piece_starts = _piece_index(parents, n)
         self._cell_blocks = _Blocks(mesh.blocks, mesh.block_offsets)  # the pieces' corners
-        self._memo: dict = {}
-        for array in (self.cell_measures, self._sizes, self.face_pairs, self.face_neighbours):
+        for array in (self.cell_measures, self._sizes, self.face_neighbours):
             array.flags.writeable = False
 
     def __repr__(self) -> str:
         return f"WholeCells({self.dimension}D, {self.n_cells} whole cells of {self.n_pieces} pieces)"
 
-    def memo(self, key, compute, keep: bool = True):
-        """As :meth:`Mesh.memo`, on this view (kept as long as the view, so as the mesh)."""
-        if key in self._memo:
-            return self._memo[key]
-        result = compute()
-        if keep:
-            self._memo[key] = result
-        return result
+    #: as :meth:`Mesh.memo`, on this view (kept as long as the view, so as the mesh)
+    memo = Mesh.memo
+
+    @property
+    def face_pairs(self) -> np.ndarray:
+        """The pairs (a, b), a < b, of whole cells sharing a face, sorted, int64 (n_pairs, 2): read
+        from :attr:`face_neighbours` (each row's higher neighbours), not kept."""
+        table = self.face_neighbours
+        higher = table > np.arange(self.n_cells, dtype=table.dtype)[:, None]
+        first = np.repeat(np.arange(self.n_cells, dtype=np.int64), higher.sum(axis=1))
+        return np.stack([first, table[higher].astype(np.int64)], axis=1)
 
     def cell_sizes_of(self, cells) -> np.ndarray:
         """measure ** (1 / dimension) of the whole ``cells`` (:meth:`Mesh.cell_sizes_of` of their pieces)."""
@@ -238,11 +240,8 @@ class WholeCells:
         """The pieces of whole ``cells``: (pieces, counts), ``pieces`` grouped cell by cell in the order
         of ``cells``, ``counts`` the number of each cell's pieces."""
         cells = np.asarray(cells, dtype=np.intp)
-        first, stop = self._piece_starts[cells].astype(np.int64), self._piece_starts[cells + 1].astype(np.int64)
-        counts = stop - first
-        total = int(counts.sum())
-        at = np.arange(total, dtype=np.int64)
-        at += np.repeat(first - (np.cumsum(counts) - counts), counts)
+        counts = self._piece_starts[cells + 1].astype(np.int64) - self._piece_starts[cells]
+        at = ranges(self._piece_starts, cells)
         return (at if self._piece_order is None else self._piece_order[at].astype(np.int64)), counts
 
     def corner_boxes(self, cells: np.ndarray) -> tuple:

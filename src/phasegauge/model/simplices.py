@@ -192,7 +192,7 @@ def _split_plan(mesh: Mesh, *, threads: int = 1) -> list:
         for work in (bent_faces_and_diagonals, cut_two_ways):  # the second pass reads what the first wrote
             for _ in ordered_map(work, chunks, threads=threads):
                 pass
-        del last
+        last = None  # (8 bytes a face, let go)
         out = []
         for kind, ids in zip(kinds, numbers):
             if kind not in CONED_TYPES:
