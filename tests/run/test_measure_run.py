@@ -307,8 +307,11 @@ def test_wrong_field_stops_a_parallel_run_after_the_first_step(tmp_path):
     assert not (tmp_path / "o").exists()
 
 
-def test_threads_give_the_same_tables_and_are_recorded(tmp_path):
-    """The section operator cut on 3 threads: profiles.csv and steps.csv equal to one thread's."""
+def test_threads_give_the_same_tables_and_are_recorded(tmp_path, monkeypatch):
+    """A run on 3 threads (its small mesh let onto them): profiles.csv and steps.csv equal to one thread's."""
+    from phasegauge.run import step
+
+    monkeypatch.setattr(step, "THREADED_CELLS", 0)
     listing = _moving_disc_series(str(tmp_path), steps=2)
     tables = {}
     for threads in (1, 3):

@@ -157,6 +157,12 @@ def flatten_step(step, options):
     return replace(step, mesh=flat.mesh, fields=fields), flat
 
 
+#: cells from which a step's work goes on threads (measured on 2 cores: at 0.25M tetrahedra no time
+#: saved and 25 % more peak memory, each thread's allocator keeping its own free memory; at 1M
+#: hexahedra 8-20 % less wall time, see benchmarks/RESULTS.md, "Twelfth round: threads")
+THREADED_CELLS = 500_000
+
+
 def analyse_step(step, options, *, contour_dir: str | None = None, reported_meshes: set | None = None,
                  threads: int = 1) -> StepResult:
     """Run the chosen analyses on one step read into the model (pure apart from contour files).
@@ -171,13 +177,15 @@ def analyse_step(step, options, *, contour_dir: str | None = None, reported_mesh
         Signatures of meshes whose quality was already warned about (updated).
     threads : int
         Threads for the work that splits into independent parts (a new mesh's geometry and faces,
-        the planes of a section operator, the widths' distance searches); the result is the same
-        bit for bit on any number.
+        the planes of a section operator, the widths' distance searches) on a mesh of at least
+        :data:`THREADED_CELLS` cells; the result is the same bit for bit on any number.
     """
     from ..analysis import conservation, droplets as droplets_mod, interface, mixing
 
     step, flat = flatten_step(step, options)
     mesh = step.mesh
+    if mesh.n_cells < THREADED_CELLS:  # too little work a part: threads would cost memory, save no time
+        threads = 1
     # the first step of a mesh: its geometry and faces side by side, then the split plan
     prepare_mesh(mesh, threads=threads, split=bool({"interface", "droplets"} & set(options.analyses))
                  or options.section_axis is not None)
