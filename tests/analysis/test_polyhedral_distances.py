@@ -22,6 +22,21 @@ from conftest import check_sphere_widths  # noqa: E402
 RADIUS = 0.3
 
 
+def _sphere_on_polyhedra(tmp_path, n, cells_across):
+    """Jittered hexahedra (n^3) written as VTK polyhedra with a logistic sphere profile of
+    ``cells_across`` cells across the band, read back: (hexahedra, split mesh, profile, h, eps)."""
+    h = 1.0 / n
+    eps = cells_across * h / WIDTH_PER_EPS
+
+    def profile(X):
+        return 0.5 * (1 + np.tanh((RADIUS - np.linalg.norm(X - 0.5, axis=1)) / (2 * eps)))
+
+    hexa = grid_mesh((n, n, n), kind="hexahedron", jitter=0.2, seed=3)
+    path = str(tmp_path / "poly.vtu")
+    to_polyhedral_grid(hexa, point_data={"c": profile(hexa.points)}).save(path)
+    return hexa, Series(path).read(0).mesh, profile, h, eps
+
+
 @pytest.mark.parametrize("cells_across, n", [(4, 32), (8, 48)])
 def test_sphere_on_polyhedra_distances_and_widths(tmp_path, cells_across, n):
     # jittered hexahedra written as VTK polyhedra: the reader splits each into 24 tetrahedra about
@@ -33,17 +48,7 @@ def test_sphere_on_polyhedra_distances_and_widths(tmp_path, cells_across, n):
     #   40^3, 4 across: 0.0090 / 0.074 (0.021 / 0.236); 48^3, 8 across: 0.012 / 0.085 (0.018 / 0.186)
     # Without a least half-size of the pieces, a sliver (a cell's corner barely cut) measured the
     # cell centres beside it to its centroid: largest errors 0.19-0.39 h.
-    h = 1.0 / n
-    width = cells_across * h
-    eps = width / WIDTH_PER_EPS
-
-    def profile(X):
-        return 0.5 * (1 + np.tanh((RADIUS - np.linalg.norm(X - 0.5, axis=1)) / (2 * eps)))
-
-    hexa = grid_mesh((n, n, n), kind="hexahedron", jitter=0.2, seed=3)
-    path = str(tmp_path / "poly.vtu")
-    to_polyhedral_grid(hexa, point_data={"c": profile(hexa.points)}).save(path)
-    mesh = Series(path).read(0).mesh
+    _, mesh, profile, h, eps = _sphere_on_polyhedra(tmp_path, n, cells_across)
     assert mesh.cell_parents is not None and set(mesh.cell_type_counts) == {"tetra"}
     c = profile(mesh.coordinates)
     # one search element per crossed polyhedron (folds and double crossings keep their triangles)
@@ -68,17 +73,7 @@ def test_sphere_on_polyhedra_added_centres_measured_from_their_corners(tmp_path,
     from phasegauge.analysis._signed_distance import _signed_distance
     from phasegauge.model.polyhedra import SPLIT_CENTRES
 
-    n, cells_across = 32, 4
-    h = 1.0 / n
-    eps = cells_across * h / WIDTH_PER_EPS
-
-    def profile(X):
-        return 0.5 * (1 + np.tanh((RADIUS - np.linalg.norm(X - 0.5, axis=1)) / (2 * eps)))
-
-    hexa = grid_mesh((n, n, n), kind="hexahedron", jitter=0.2, seed=3)
-    path = str(tmp_path / "poly.vtu")
-    to_polyhedral_grid(hexa, point_data={"c": profile(hexa.points)}).save(path)
-    mesh = Series(path).read(0).mesh
+    hexa, mesh, profile, h, eps = _sphere_on_polyhedra(tmp_path, 32, 4)
     centres = mesh.memo(SPLIT_CENTRES, lambda: None, keep=False)
     assert centres is not None and centres.first == hexa.points.shape[0]
     assert centres.offsets.size - 1 == mesh.n_points - centres.first
