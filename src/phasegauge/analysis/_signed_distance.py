@@ -322,13 +322,17 @@ def _signed_distance(points: np.ndarray, values: np.ndarray, geometry: _ContourG
     points (faster for points far off the contour; equidistant elements may resolve otherwise).
     ``threads``: threads of each search (the same distances on any number).
     """
-    (cent, normal, half), far_set = _search_sets(geometry, plane_axes)
+    close_set, far_set = _search_sets(geometry, plane_axes)
     dist = np.full(points.shape[0], np.nan)
-    close = (values > near_band) & (values < 1.0 - near_band)
-    rows = np.flatnonzero(close)
-    dist[rows] = _nearest_plane_distance(points, rows, cent, normal, half, bound, compact, threads)
-    rows = np.flatnonzero(~close)
-    dist[rows] = _nearest_plane_distance(points, rows, *far_set, bound, compact, threads)
+    if far_set is close_set:  # few elements, none thinned: one search of every row
+        rows = np.arange(points.shape[0])
+        dist[rows] = _nearest_plane_distance(points, rows, *close_set, bound, compact, threads)
+    else:
+        close = (values > near_band) & (values < 1.0 - near_band)
+        rows = np.flatnonzero(close)
+        dist[rows] = _nearest_plane_distance(points, rows, *close_set, bound, compact, threads)
+        rows = np.flatnonzero(~close)
+        dist[rows] = _nearest_plane_distance(points, rows, *far_set, bound, compact, threads)
     np.negative(dist, out=dist, where=~(values > level))
     return dist
 
@@ -349,8 +353,9 @@ def _search_sets(geometry: _ContourGeometry, plane_axes) -> tuple[tuple, tuple]:
     if half is None:
         half = 0.5 * (sizes if contour.dimension == 2 else np.sqrt(sizes))
     stride = max(1, sizes.size // _THIN_TO)
-    if stride == 1:
-        return (cent, normal, half), (cent, normal, half)
+    if stride == 1:  # the far rows search the close rows' own set (the same object: callers test it)
+        both = (cent, normal, half)
+        return both, both
     thin = slice(0, None, stride)
     spacing = (sizes.sum() / len(cent[thin])) ** (1.0 / (contour.dimension - 1))
     return (cent, normal, half), (cent[thin], normal[thin], np.maximum(half[thin], spacing))
@@ -397,7 +402,7 @@ def _centre_split_distance(points: np.ndarray, values: np.ndarray, wanted: np.nd
     dist = np.full(points.shape[0], np.nan)
     close = (values > near_band) & (values < 1.0 - near_band)
     ids = np.flatnonzero(wanted[first:])  # the wanted centres, numbered among the centres
-    passes = [(None, close_set)] if far_set[0] is close_set[0] else [(close, close_set), (~close, far_set)]
+    passes = [(None, close_set)] if far_set is close_set else [(close, close_set), (~close, far_set)]
     for cls, (cent, normal, half) in passes:
         own = wanted[:first] if cls is None else wanted[:first] & cls[:first]
         picked = ids if cls is None else ids[cls[first + ids]]

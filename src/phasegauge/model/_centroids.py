@@ -17,7 +17,7 @@ import numpy as np
 from ._geometry import cell_geometry
 from .corners import corner_sum
 
-__all__ = ["keeps_centroids", "mesh_geometry", "cell_centroids_of", "whole_cell_centroids"]
+__all__ = ["keeps_centroids", "mesh_geometry", "cell_centroids_of", "whole_cell_centroids", "add_whole_sums"]
 
 #: cells computed at a time (the chunk's corner coordinates and results stay small)
 _CHUNK = 1 << 16
@@ -66,20 +66,32 @@ def _split_geometry(mesh, X: np.ndarray) -> tuple:
             n = part.shape[0]
             cells = slice(start + lo, start + lo + n)
             cell_geometry(block.cell_type, X, part, out=(signed[cells], scratch[:n]))
-            weight, whole = np.abs(signed[cells]), parents[cells]  # the measures (of cell_measures)
-            # the polyhedra's pieces come whole cell after whole cell (a short range of numbers);
-            # cones of a block split in part come face after face (numbers from all over the block)
-            first = int(whole.min())
-            spread = int(whole.max()) - first >= 2 * n
-            at, whole = np.unique(whole, return_inverse=True) if spread else (None, whole - first)
-            for d in range(dim + 1):
-                part_sum = np.bincount(whole, weights=weight * scratch[:n, d] if d < dim else weight)
-                if at is None:
-                    moment[first:first + part_sum.size, d] += part_sum
-                else:
-                    moment[at, d] += part_sum
+            weight = np.abs(signed[cells])  # the measures (of cell_measures)
+            add_whole_sums(moment, parents[cells], (weight * scratch[:n, d] if d < dim else weight
+                                                    for d in range(dim + 1)))
     total = moment[:, dim]
     return signed, moment[:, :dim] / np.where(total > 0, total, 1.0)[:, None]
+
+
+def add_whole_sums(out: np.ndarray, whole: np.ndarray, columns) -> None:
+    """Add each column's per-piece values into ``out[:, d]`` summed per whole cell (``whole``: the
+    whole cell of each piece of one chunk; ``columns``: one (pieces,) array per column of ``out``).
+
+    The polyhedra's pieces come whole cell after whole cell (a short range of numbers a chunk);
+    cones of a block split in part come face after face (numbers from all over the block): such a
+    chunk is summed over the numbers present.
+    """
+    if not whole.size:
+        return
+    first = int(whole.min())
+    spread = int(whole.max()) - first >= 2 * whole.size
+    at, whole = np.unique(whole, return_inverse=True) if spread else (None, whole - first)
+    for d, values in enumerate(columns):
+        part_sum = np.bincount(whole, weights=values)
+        if at is None:
+            out[first:first + part_sum.size, d] += part_sum
+        else:
+            out[at, d] += part_sum
 
 
 def cell_centroids_of(mesh, cells=None) -> np.ndarray:

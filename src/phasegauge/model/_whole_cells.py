@@ -28,7 +28,7 @@ from __future__ import annotations
 
 import numpy as np
 
-from ._centroids import whole_cell_centroids
+from ._centroids import add_whole_sums, whole_cell_centroids
 from ._faces import kept_neighbours
 from ._grouping import index_dtype, ranges, unique_ints
 from .corners import corner_extremes
@@ -62,18 +62,8 @@ def _whole_sums(parents: np.ndarray, values: np.ndarray, n: int, weights: np.nda
     cols = values[:, None] if flat else values
     out = np.zeros((n, cols.shape[1]))
     for lo in range(0, parents.size, _CHUNK):
-        whole = parents[lo:lo + _CHUNK]
-        if not whole.size:
-            continue
-        first = int(whole.min())
-        at, whole = ((np.unique(whole, return_inverse=True)) if int(whole.max()) - first >= 2 * whole.size
-                     else (None, whole - first))
-        for d in range(cols.shape[1]):
-            part = np.bincount(whole, weights=cols[lo:lo + _CHUNK, d] * weights[lo:lo + _CHUNK])
-            if at is None:
-                out[first:first + part.size, d] += part
-            else:
-                out[at, d] += part
+        add_whole_sums(out, parents[lo:lo + _CHUNK], (cols[lo:lo + _CHUNK, d] * weights[lo:lo + _CHUNK]
+                                                      for d in range(cols.shape[1])))
     return out[:, 0] if flat else out
 
 
