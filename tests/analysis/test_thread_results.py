@@ -1,6 +1,6 @@
 """Work on several threads gives what one thread gives, bit for bit: the section operator, a new
 mesh's geometry and faces, the split plan, the widths' distance searches; and the threaded profile
-matches pyvista's plane slice (the outside reference of tests/analysis/test_sections_operator.py)."""
+matches pyvista's plane slice; the sorts shared among threads match numpy's (the outside reference of tests/analysis/test_sections_operator.py)."""
 
 import dataclasses
 
@@ -89,6 +89,41 @@ def test_prepared_mesh_has_the_same_geometry_and_faces():
     np.testing.assert_array_equal(one.face_pairs, two.face_pairs)
     for a, b in zip(one.boundary_faces, two.boundary_faces):
         np.testing.assert_array_equal(a, b)
+
+
+@pytest.mark.parametrize("threads", [2, 3, 4, 8])
+def test_sorts_shared_among_threads_match_numpy(threads, monkeypatch):
+    # outside reference: numpy's own np.sort and np.unique on the same values
+    from phasegauge.model import _grouping
+
+    monkeypatch.setattr(_grouping, "THREADED_SORT", 10)
+    rng = np.random.default_rng(threads)
+    values = rng.integers(0, 50, 1001)  # many ties
+    np.testing.assert_array_equal(_grouping.sort_in_place(values.copy(), threads=threads), np.sort(values))
+    np.testing.assert_array_equal(_grouping.unique_ints(values, threads=threads), np.unique(values))
+    key = rng.integers(0, 1 << 20, 777)
+    order, ordered = _grouping._sort_order(key.copy(), 20, threads=threads)
+    np.testing.assert_array_equal(order, np.argsort(key, kind="stable"))  # ties by position
+    np.testing.assert_array_equal(ordered, np.sort(key))
+
+
+@pytest.mark.parametrize("kind", ["hexahedron", "mixed", "tetra"])
+def test_faces_grouped_on_threads_are_those_of_one_thread(kind, monkeypatch):
+    # every sort of the grouping shared among threads: the same pairs, boundary and face numbers
+    from phasegauge.model import _grouping
+    from phasegauge.model._faces import face_topology
+
+    monkeypatch.setattr(_grouping, "THREADED_SORT", 16)
+    mesh = grid_mesh((9, 7, 6), kind=kind, jitter=0.3, seed=5)
+    one, three = face_topology(mesh), face_topology(mesh, threads=3)
+    np.testing.assert_array_equal(one["pairs"], three["pairs"])
+    for a, b in zip(one["boundary"], three["boundary"]):
+        np.testing.assert_array_equal(a, b)
+    for a, b in zip(one["numbers"], three["numbers"]):
+        assert (a is None) == (b is None)
+        if a is not None:
+            np.testing.assert_array_equal(a, b)
+    assert one["count"] == three["count"] and one["crowded"] == three["crowded"]
 
 
 @pytest.mark.parametrize("kind", ["hexahedron", "mixed"])

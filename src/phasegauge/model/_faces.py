@@ -71,9 +71,10 @@ def row_owners(mesh: Mesh, rows: np.ndarray, row_starts: np.ndarray) -> np.ndarr
     return mesh.block_offsets[block] + (rows - row_starts[block]) % n[block]
 
 
-def face_topology(mesh: Mesh) -> dict:
+def face_topology(mesh: Mesh, *, threads: int = 1) -> dict:
     """Face grouping, done once: what :attr:`face_pairs`, :attr:`boundary_faces` and the
     face numbers of :meth:`face_numbers` are read from (the grouping itself is not kept).
+    Its sorts on up to ``threads`` threads (the same grouping on any number).
 
     Faces are numbered in the lexicographic order of their sorted corners. A mesh whose cells a
     reader split into tetrahedra it already knows the face neighbours of (``mesh.memo`` entry
@@ -83,7 +84,7 @@ def face_topology(mesh: Mesh) -> dict:
     if given is not None:
         return split_face_topology(mesh, given)
     columns, row_starts = face_rows(mesh)
-    order, starts = group_columns(list(columns))
+    order, starts = group_columns(list(columns), threads=threads)
     m = order.size
     sizes = np.diff(starts, append=m).astype(index_dtype(m + 1))
     # faces owned by one cell only
@@ -106,7 +107,7 @@ def face_topology(mesh: Mesh) -> dict:
     key += high[apart]
     del first, low, high, apart
     shared_faces = int(key.size)  # faces of two different cells (a pair seen twice: cells that share two faces)
-    key = unique_ints(key)
+    key = unique_ints(key, threads=threads)
     # int32 where cell ids times a small count (faces per cell) still fit: users build
     # table offsets as cell * width in the pairs' own dtype
     pairs = np.empty((key.size, 2), dtype=np.int32 if mesh.n_cells < 2 ** 24 else np.int64)

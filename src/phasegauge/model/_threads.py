@@ -91,7 +91,7 @@ def prepare_mesh(mesh, *, threads: int = 1, split: bool = True) -> None:
 
     The first step of a run needs both (the measures for every integral, the faces for the mesh
     check and the droplets' neighbours); neither reads the other, so on two free cores the pair
-    takes about the longer one's time. With ``split`` (an analysis will split cells: the
+    takes about the longer one's time; the faces' sorts share the threads as well. With ``split`` (an analysis will split cells: the
     interface, the sections), the plan of which hexahedra, wedges and pyramids are split about
     added centres follows on all the threads. A regular grid numbers its faces by position (no
     grouping), and one thread makes what it needs when it is first read, as before; so does a
@@ -103,9 +103,19 @@ def prepare_mesh(mesh, *, threads: int = 1, split: bool = True) -> None:
     if "_geometry" in made or "_face_topology" in made:
         return
     mesh.coordinates  # noqa: B018  (read by both: made here first)
-    for _ in ordered_map(lambda name: getattr(mesh, name), ("_face_topology", "_geometry"), threads=2):
+    for _ in ordered_map(lambda make: make(), (lambda: _make_faces(mesh, threads), lambda: mesh._geometry),
+                         threads=2):
         pass
     if split and mesh.dimension == 3:
         from .simplices import _split_plan
 
         _split_plan(mesh, threads=threads)
+
+
+def _make_faces(mesh, threads: int) -> None:
+    """The mesh's face grouping (:attr:`Mesh._face_topology`, a cached property) made with its
+    sorts on ``threads`` threads: the same grouping as the property makes on one, kept where the
+    property keeps it."""
+    from ._faces import face_topology
+
+    mesh.__dict__["_face_topology"] = face_topology(mesh, threads=threads)
