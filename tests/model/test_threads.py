@@ -29,3 +29,26 @@ def test_check_threads_refuses_what_is_no_count(bad):
 def test_check_threads_takes_counts():
     assert check_threads(3) == 3 and check_threads("4") == 4
 
+
+
+def test_beside_hands_back_the_result_or_the_error():
+    import threading
+
+    from phasegauge.model._threads import Beside
+
+    started = threading.Event()
+
+    def work(a, *, b):
+        started.set()
+        return a + b
+
+    job = Beside(work, 2, b=3)
+    assert started.wait(5) and job.result() == 5 and job.result() == 5
+
+    def fail():
+        raise OptionError("no planes here", fix="give positions inside the mesh")
+
+    job = Beside(fail)
+    job.wait()  # waits without raising: the caller may be raising an error of its own
+    with pytest.raises(OptionError, match="no planes here"):
+        job.result()

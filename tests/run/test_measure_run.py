@@ -325,6 +325,23 @@ def test_threads_give_the_same_tables_and_are_recorded(tmp_path, monkeypatch):
     assert res.exit_code == 2 and "threads must be a whole number of at least 1" in res.output
 
 
+def test_sections_built_beside_stop_the_run_as_on_one_thread(tmp_path, monkeypatch):
+    """A section position outside the mesh: the operator built on a thread of its own gives the
+    one-thread run's error, with the step named."""
+    from phasegauge.errors import OptionError
+    from phasegauge.run import step
+
+    monkeypatch.setattr(step, "THREADED_CELLS", 0)
+    listing = _moving_disc_series(str(tmp_path), steps=2)
+    messages = []
+    for threads in (1, 3):
+        with pytest.raises(OptionError, match="section positions 99 lie outside the mesh") as caught:
+            measure(listing, "alpha", section_axis="x", section_positions=[99.0], threads=threads,
+                    out=str(tmp_path / f"o{threads}"))
+        messages.append(str(caught.value))
+    assert messages[0] == messages[1]
+
+
 def test_threads_are_checked_first_by_every_command(tmp_path):
     """A wrong thread count is refused before any work, by each command that measures."""
     listing = _moving_disc_series(str(tmp_path), steps=2)

@@ -173,6 +173,57 @@ def _about(weight_total: float, first: float, second: float, shift: float, refer
     return variance / spread
 
 
+class _Planes:
+    """The checked arguments of :func:`cross_sections`: the field, the velocity along the axis,
+    the plane positions, and the section operator they need."""
+
+    def __init__(self, mesh, c_point_or_indicator, axis, positions, count, velocity, c_location,
+                 velocity_location):
+        self.mesh = mesh
+        self.global_axis, self.plane_axis = normalize_axis(mesh, axis)
+        self.c, self.c_location = field_location(mesh, c_point_or_indicator, "c", c_location)
+        if self.c.ndim != 1:
+            raise OptionError(f"c must be a scalar field, found shape {self.c.shape}", fix="pass the indicator")
+        if positions is None:
+            positions = default_positions(mesh, self.global_axis, count)
+        positions = np.atleast_1d(np.asarray(positions, dtype=np.float64))
+        if positions.ndim != 1 or not np.all(np.isfinite(positions)):
+            raise OptionError("positions must be a list of finite numbers",
+                              fix="for example positions=[0.1, 0.2, 0.5]")
+        low, high = mesh.bounds[:, self.global_axis]
+        outside = positions[(positions < low) | (positions > high)]
+        if outside.size:
+            raise OptionError(f"section positions {', '.join(f'{p:g}' for p in outside)} lie outside the mesh, "
+                              f"which spans {AXIS_NAMES[self.global_axis]} from {low:.6g} to {high:.6g}",
+                              fix="give positions inside the mesh")
+        self.positions = positions
+        self.u = None
+        if velocity is not None:
+            self.u = normal_velocity(mesh, velocity, self.global_axis, velocity_location)
+        tolerance = 1e-12 * max(float(np.ptp(mesh.bounds[:, self.global_axis])), 1e-300)
+        # a plane through mesh points takes the faces on its lower side, except at the lower end
+        self.lower_ends = positions <= mesh.bounds[0, self.global_axis] + tolerance
+        self.locations = frozenset([self.c_location] + ([] if self.u is None else [self.u[1]]))
+
+    def operator(self, threads: int):
+        """The section operator of these planes (kept on the mesh: built once per axis and positions)."""
+        return _sections(self.mesh, self.plane_axis, self.positions, self.lower_ends, self.locations,
+                         threads=threads)
+
+
+def prepare_cross_sections(mesh: Mesh, c_point_or_indicator, *, axis="x", positions=None, count: int = 20,
+                           velocity=None, c_location: str | None = None, velocity_location: str | None = None,
+                           threads: int = 1) -> None:
+    """Build and keep the section operator that :func:`cross_sections` with the same arguments reads.
+
+    Mesh work only: the planes cut (on up to ``threads`` threads) and kept on the mesh, nothing
+    integrated and nothing warned; the same checks and errors as :func:`cross_sections`. A run
+    builds it beside the step's other analyses on a new mesh.
+    """
+    _Planes(mesh, c_point_or_indicator, axis, positions, count, velocity, c_location,
+            velocity_location).operator(threads)
+
+
 def cross_sections(mesh: Mesh, c_point_or_indicator, *, axis="x", positions=None, count: int = 20,
                    velocity=None, c_location: str | None = None,
                    velocity_location: str | None = None, inflow_mean: float | None = None,
@@ -261,34 +312,13 @@ def cross_sections(mesh: Mesh, c_point_or_indicator, *, axis="x", positions=None
     if inflow_mean is not None and not np.isfinite(inflow_mean):
         raise OptionError(f"inflow_mean must be a finite number, found {inflow_mean!r}",
                           fix="give the mean of c over the inflow, or leave it out")
-    global_axis, plane_axis = normalize_axis(mesh, axis)
-    c, c_location = field_location(mesh, c_point_or_indicator, "c", c_location)
-    if c.ndim != 1:
-        raise OptionError(f"c must be a scalar field, found shape {c.shape}", fix="pass the indicator")
-    if positions is None:
-        positions = default_positions(mesh, global_axis, count)
-    positions = np.atleast_1d(np.asarray(positions, dtype=np.float64))
-    if positions.ndim != 1 or not np.all(np.isfinite(positions)):
-        raise OptionError("positions must be a list of finite numbers",
-                          fix="for example positions=[0.1, 0.2, 0.5]")
-    low, high = mesh.bounds[:, global_axis]
-    outside = positions[(positions < low) | (positions > high)]
-    if outside.size:
-        raise OptionError(f"section positions {', '.join(f'{p:g}' for p in outside)} lie outside the mesh, "
-                          f"which spans {AXIS_NAMES[global_axis]} from {low:.6g} to {high:.6g}",
-                          fix="give positions inside the mesh")
-    u = None
-    if velocity is not None:
-        u = normal_velocity(mesh, velocity, global_axis, velocity_location)
+    planes = _Planes(mesh, c_point_or_indicator, axis, positions, count, velocity, c_location, velocity_location)
+    c, c_location, u = planes.c, planes.c_location, planes.u
+    positions, global_axis = planes.positions, planes.global_axis
     finite = np.isfinite(c)
     finite_c = c if finite.all() else c[finite]
     shift = _median(finite_c) if finite_c.size else 0.0  # shifts c before squaring
-    lo_bound = mesh.bounds[0, global_axis]
-    tolerance = 1e-12 * max(float(np.ptp(mesh.bounds[:, global_axis])), 1e-300)
-    # a plane through mesh points takes the faces on its lower side, except at the lower end
-    lower_ends = positions <= lo_bound + tolerance
-    locations = frozenset([c_location] + ([] if u is None else [u[1]]))
-    sections = _sections(mesh, plane_axis, positions, lower_ends, locations, threads=threads)
+    sections = planes.operator(threads)
 
     # point fields at the cut edges for all planes at once (c shifted there); cell fields are
     # read per piece from its cell. Non-finite values are looked for per piece only if there are any

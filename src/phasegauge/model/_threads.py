@@ -9,11 +9,12 @@ made them, so a run's tables are the same bit for bit on any number of threads.
 from __future__ import annotations
 
 import os
+import threading
 from concurrent.futures import ThreadPoolExecutor
 
 from ..errors import OptionError
 
-__all__ = ["THREADS_VARIABLE", "thread_count", "check_threads", "ordered_map"]
+__all__ = ["THREADS_VARIABLE", "thread_count", "check_threads", "ordered_map", "Beside"]
 
 #: environment variable that caps the threads of one process (as OMP_NUM_THREADS does for OpenMP)
 THREADS_VARIABLE = "PHASEGAUGE_THREADS"
@@ -119,3 +120,37 @@ def _make_faces(mesh, threads: int) -> None:
     from ._faces import face_topology
 
     mesh.__dict__["_face_topology"] = face_topology(mesh, threads=threads)
+
+
+class Beside:
+    """``function(*args, **kwargs)`` on a thread of its own while the caller goes on.
+
+    For mesh work the caller's next steps do not read (a new mesh's section operator while the
+    interface is measured): nothing it makes is read before :meth:`result`, and it must not warn
+    (its warnings would land among the caller's in no fixed order).
+    """
+
+    def __init__(self, function, *args, **kwargs):
+        self._value = self._error = None
+
+        def run():
+            try:
+                self._value = function(*args, **kwargs)
+            except BaseException as exc:  # handed to the caller by result()
+                self._error = exc
+
+        self._thread = threading.Thread(target=run, name="phasegauge-beside", daemon=True)
+        self._thread.start()
+
+    def wait(self) -> None:
+        """Wait for the thread to end (its error, if any, kept for :meth:`result`)."""
+        if self._thread.is_alive():
+            self._thread.join()
+            _release_thread_arenas()
+
+    def result(self):
+        """The function's result, or its error raised here."""
+        self.wait()
+        if self._error is not None:
+            raise self._error
+        return self._value

@@ -23,7 +23,7 @@ from ..model.fields import vector_field
 from ..model.indicator import make_indicator
 from ..model.outline import MeshOutline
 from ..model._overlaps import overlap_problem
-from ..model._threads import prepare_mesh
+from ..model._threads import Beside, prepare_mesh
 from ._sampling import sample_step
 
 __all__ = ["StepResult", "StepRunner", "analyse_step", "run_step", "STEP_ERRORS"]
@@ -177,10 +177,11 @@ def analyse_step(step, options, *, contour_dir: str | None = None, reported_mesh
         Signatures of meshes whose quality was already warned about (updated).
     threads : int
         Threads for the work that splits into independent parts (a new mesh's geometry and faces,
-        the planes of a section operator, the widths' distance searches) on a mesh of at least
+        the planes of a section operator, the widths' distance searches; a new mesh's section
+        operator is built beside the phase analyses) on a mesh of at least
         :data:`THREADED_CELLS` cells; the result is the same bit for bit on any number.
     """
-    from ..analysis import conservation, droplets as droplets_mod, interface, mixing
+    from ..analysis import mixing
 
     step, flat = flatten_step(step, options)
     mesh = step.mesh
@@ -205,6 +206,66 @@ def analyse_step(step, options, *, contour_dir: str | None = None, reported_mesh
     m = {"step": step.index, "time": step.time}
     if flat is not None:  # measured per unit depth: say so in the steps table
         m["depth"] = float(flat.depth)
+    # a new mesh's section operator (mesh work, no warnings) is built beside the phase analyses
+    operator = _operator_beside(mesh, ind, options, u_cell, u_point, u_location, threads)
+    try:
+        contour, measured = _phase_analyses(step, mesh, ind, options, result, m, (u_cell, u_point, u_location),
+                                            contour_dir, threads)
+    finally:
+        if operator is not None:
+            operator.wait()
+    if operator is not None:
+        operator.result()  # its error where one thread would have met it: at the sections
+    if "mixing" in options.analyses:
+        m.update(mixing.mixing_metrics(mesh, ind.cell, box=options.box))
+        if options.segregation_scale:
+            m["segregation_scale"] = mixing.segregation_scale(mesh, ind.cell)
+        if options.section_axis is not None:
+            profile = mixing.cross_sections(mesh, ind, axis=options.section_axis,
+                                            positions=options.section_positions,
+                                            count=options.section_count,
+                                            velocity=u_cell if u_location == "cell" else u_point,
+                                            velocity_location=u_location, threads=threads)
+            weighting = "flow" if u_location is not None else "area"
+            m["mixing_length"] = mixing.mixing_length(profile, target=options.mixing_target,
+                                                      weighting=weighting)
+            profile.insert(0, "time", step.time)
+            profile.insert(0, "step", step.index)
+            result.profile = profile
+    if options.coarsening:
+        m["coarsening_length"] = mixing.coarsening_length(mesh, ind.cell)
+    if options.free_energy is not None:
+        m.update(_equilibrium(step, mesh, ind, options, m.get("interface_size")))
+    if options.model is not None:  # a partially miscible mixture: bulk compositions against the model
+        from ._mixture import mixture_step
+
+        m.update(mixture_step(step, mesh, ind, contour, m, options, droplets=result.droplets, measured=measured))
+    m["nonfinite_values"] = int(ind.nonfinite)
+    result.metrics = m
+    result.contour = contour
+    return result
+
+
+def _operator_beside(mesh, ind, options, u_cell, u_point, u_location, threads: int):
+    """The section operator of a new mesh built on a thread of its own, or None (one thread, no
+    sections, or the mesh's operator kept from an earlier step)."""
+    from ..analysis import mixing
+
+    if threads < 2 or "mixing" not in options.analyses or options.section_axis is None or mesh.memo(
+            "cross_sections", dict, keep=False):
+        return None
+    return Beside(mixing.prepare_cross_sections, mesh, ind, axis=options.section_axis,
+                  positions=options.section_positions, count=options.section_count,
+                  velocity=u_cell if u_location == "cell" else u_point, velocity_location=u_location,
+                  threads=threads)
+
+
+def _phase_analyses(step, mesh, ind, options, result, m: dict, velocity: tuple, contour_dir, threads: int):
+    """Conservation, interface and droplets of one step, into ``m`` and ``result``; returns the
+    contour and the distances the widths measured (or None)."""
+    from ..analysis import conservation, droplets as droplets_mod, interface
+
+    u_cell, u_point, u_location = velocity
     if "conservation" in options.analyses:
         m.update(conservation.conservation_metrics(mesh, ind, densities=options.densities))
         m.update(conservation.boundedness(mesh, ind))
@@ -252,34 +313,7 @@ def analyse_step(step, options, *, contour_dir: str | None = None, reported_mesh
         result.label_whole = bool(found.whole_cells)  # numbered per whole cell on a split mesh
         result.droplets = table
         del found, labelled  # labels and c dV of every cell (16 bytes a cell): not held through the sections
-    if "mixing" in options.analyses:
-        m.update(mixing.mixing_metrics(mesh, ind.cell, box=options.box))
-        if options.segregation_scale:
-            m["segregation_scale"] = mixing.segregation_scale(mesh, ind.cell)
-        if options.section_axis is not None:
-            profile = mixing.cross_sections(mesh, ind, axis=options.section_axis,
-                                            positions=options.section_positions,
-                                            count=options.section_count,
-                                            velocity=u_cell if u_location == "cell" else u_point,
-                                            velocity_location=u_location, threads=threads)
-            weighting = "flow" if u_location is not None else "area"
-            m["mixing_length"] = mixing.mixing_length(profile, target=options.mixing_target,
-                                                      weighting=weighting)
-            profile.insert(0, "time", step.time)
-            profile.insert(0, "step", step.index)
-            result.profile = profile
-    if options.coarsening:
-        m["coarsening_length"] = mixing.coarsening_length(mesh, ind.cell)
-    if options.free_energy is not None:
-        m.update(_equilibrium(step, mesh, ind, options, m.get("interface_size")))
-    if options.model is not None:  # a partially miscible mixture: bulk compositions against the model
-        from ._mixture import mixture_step
-
-        m.update(mixture_step(step, mesh, ind, contour, m, options, droplets=result.droplets, measured=measured))
-    m["nonfinite_values"] = int(ind.nonfinite)
-    result.metrics = m
-    result.contour = contour
-    return result
+    return contour, measured
 
 
 def _equilibrium(step, mesh, ind, options, interface_size) -> dict:
