@@ -3,10 +3,12 @@
 A hexahedron the conforming split (:func:`phasegauge.model.simplices.split_cells`) cones
 from its centre (a face bent, or cut along different diagonals by its two cells: every inner
 cell of a jittered or curvilinear hexahedral mesh) is split into tetrahedra joined to the cell
-centre: four per face that gets a face centre (edge start, edge end, face centre), two per face
-cut along the diagonal its table uses (a flat boundary face, say). The centres are their
+centre: two per face, cut along the diagonal the split chooses (the shorter one for a bent
+face, the table's for a flat face cut alike from both sides), or four where the face's two
+diagonals tie and it gets a face centre (edge start, edge end, face centre): 12 per cell on a
+jittered mesh. The centres are their
 corners' means in coordinates and values alike. Those tetrahedra are fixed by the cell's own
-eight corners and its face code (which faces get a centre, worked out once per mesh), so their
+eight corners and its face code (how each face is cut, worked out once per mesh), so their
 integrals need no split arrays (no vertex ids, owners, shared face centres or concatenations):
 this module forms them per chunk of cells of one face code from the gathered corners, in cache.
 
@@ -38,8 +40,8 @@ point-number order there; relative differences about 1e-15, at most 1e-12 in
 ``tests/analysis/test_hex_integrals.py``).
 
 The cells no band edge crosses (all corners inside 0.05 < c < 0.95, or all on one side of it:
-most of the cells where c varies) take a quadrature of the cell's trilinear map instead, about
-a sixth of the work: int |grad c| = V |grad c| at the cell centre (J^-T dc/dxi there, by
+most of the cells where c varies) take a quadrature of the cell's trilinear map instead, a
+fraction of the work: int |grad c| = V |grad c| at the cell centre (J^-T dc/dxi there, by
 Cramer's rule), V the cell's volume (:attr:`Mesh.cell_measures`, exact for the trilinear map);
 int c (1 - c) and the moments' int d and int d^2 by the rule V ((1/3) mean over the corners +
 (2/3) value at the centre), the centre's value the corners' mean; a band cell adds V. On an
@@ -53,7 +55,10 @@ int c (1 - c) per area and eps 1.062 and 1.016 against 1.063 and 1.016 (analytic
 sphere of radius 0.3 at 4 cells across (32^3 cells) the threshold-free width moves from +5.2 %
 to +5.6 % of w, the second moment's from +4.9 % to +5.5 %, within the tolerances the split meets
 (``tests/analysis/test_hex_integrals.py``). The cells a band edge crosses keep the split, so the
-band volume (``interface_width``) keeps its exact band edges.
+band volume (``interface_width``) keeps its exact band edges. (A cell whose bent faces the split
+cuts along diagonals holds, over its tetrahedra, V plus or minus what lies between each face and
+its two triangles, which the neighbour across the face loses or gains: the totals agree, and where
+a band cell meets a cell a band edge crosses the band volume moves by that sliver, of either sign.)
 """
 
 from __future__ import annotations
@@ -64,7 +69,6 @@ from ..model.cells import FACES
 from ..model.mesh import Mesh
 from ..model._grouping import index_dtype
 from ..model._geometry import _cross, _dot
-from ..model._split_tables import TABLE_DIAGONALS
 from ..model.corners import corner_sum
 from ..model.simplices import _split_plan
 from ._sums import dot
@@ -78,7 +82,7 @@ _LOW, _HIGH = 0.05, 0.95
 _HEX_FACES = FACES["hexahedron"]
 #: the weights and volumes of a chunk are kept as six times the measure (times |grad c|)
 _SIX = 6.0
-#: cells no band edge crosses integrated on their trilinear map, not the 24 tetrahedra
+#: cells no band edge crosses integrated on their trilinear map, not the split's tetrahedra
 _QUADRATURE = True
 #: per reference axis xi_k of a hexahedron, its corners on the face xi_k = 1 and on xi_k = 0
 _XI_FACES = (((1, 2, 5, 6), (0, 3, 4, 7)), ((2, 3, 6, 7), (0, 1, 4, 5)), ((4, 5, 6, 7), (0, 1, 2, 3)))
@@ -87,23 +91,26 @@ _XI_FACES = (((1, 2, 5, 6), (0, 3, 4, 7)), ((2, 3, 6, 7), (0, 1, 4, 5)), ((4, 5,
 def coned_hexahedra(mesh: Mesh) -> list | None:
     """Per block, (local rows, face codes) of the coned hexahedra; None if the mesh has none.
 
-    The code of a cell has bit j set when its face j (``FACES`` order) gets a centre in the
-    split (:func:`phasegauge.model.simplices._split_plan`, cached per mesh): 63 when all six do.
+    The code of a cell says how the split (:func:`phasegauge.model.simplices._split_plan`,
+    cached per mesh) cuts each face j (``FACES`` order): bit j set when the face gets a centre,
+    else bit 6 + j set when it is cut along its face corners 1-3 (clear: along 0-2).
     """
     if mesh.dimension != 3 or not any(block.cell_type == "hexahedron" for block in mesh.blocks):
         return None
 
-    def compute():  # kept with the mesh: 5 bytes per coned cell (int32 rows, uint8 codes)
+    def compute():  # kept with the mesh: 6 bytes per coned cell (int32 rows, uint16 codes)
         out = []
-        empty = (np.zeros(0, np.int32), np.zeros(0, np.uint8))
+        empty = (np.zeros(0, np.int32), np.zeros(0, np.uint16))
         for block, coned in zip(mesh.blocks, _split_plan(mesh)):
             if block.cell_type != "hexahedron" or coned is None:
                 out.append(empty)
                 continue
             rows = np.flatnonzero(coned.coned).astype(index_dtype(len(block)))
-            codes = np.zeros(rows.size, np.uint8)
+            codes = np.zeros(rows.size, np.uint16)
             for j in range(6):
-                codes |= coned.centred[rows, j].astype(np.uint8) << j
+                centred = coned.centred[rows, j]
+                codes |= centred.astype(np.uint16) << j
+                codes |= (coned.along13[rows, j] & ~centred).astype(np.uint16) << (6 + j)
             out.append((rows, codes))
         return out if any(rows.size for rows, _ in out) else None
 
@@ -112,16 +119,16 @@ def coned_hexahedra(mesh: Mesh) -> list | None:
 
 def _tetrahedra(code: int) -> tuple:
     """The tetrahedra of a coned hexahedron with face code ``code``, as vertex triples joined to the
-    cell centre: corners 0-7, face centres 8-13. A centred face gives four (edge and face centre),
-    another face two, cut along the diagonal the table cuts it along (as the split does)."""
+    cell centre: corners 0-7, face centres 8-13. A face with a centre gives four (edge and face
+    centre), another face two, cut along the diagonal the code names (as the split does)."""
     out = []
     for j, face in enumerate(_HEX_FACES):
         if code >> j & 1:
             out += [(face[i], face[(i + 1) % 4], 8 + j) for i in range(4)]
-        elif TABLE_DIAGONALS["hexahedron"][j] == (face[0], face[2]):
-            out += [(face[0], face[1], face[2]), (face[0], face[2], face[3])]
-        else:
+        elif code >> (6 + j) & 1:
             out += [(face[1], face[2], face[3]), (face[1], face[3], face[0])]
+        else:
+            out += [(face[0], face[1], face[2]), (face[0], face[2], face[3])]
     return tuple(out)
 
 
@@ -163,7 +170,7 @@ class _HexCells:
         for block, start, (local, codes) in zip(mesh.blocks, mesh.block_offsets[:-1], rows):
             if local.size == 0:
                 continue
-            counts = np.bincount(codes, minlength=64)
+            counts = np.bincount(codes, minlength=1 << 12)
             for code in np.flatnonzero(counts):  # cells of one face code at a time (few codes)
                 chosen = local if counts[code] == local.size else local[codes == code]
                 tets = _tetrahedra(int(code))
