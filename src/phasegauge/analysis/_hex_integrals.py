@@ -6,11 +6,13 @@ cell of a jittered or curvilinear hexahedral mesh) is split into tetrahedra join
 centre: two per face, cut along the diagonal the split chooses (the shorter one for a bent
 face, the table's for a flat face cut alike from both sides), or four where the face's two
 diagonals tie and it gets a face centre (edge start, edge end, face centre): 12 per cell on a
-jittered mesh. The centres are their
-corners' means in coordinates and values alike. Those tetrahedra are fixed by the cell's own
-eight corners and its face code (how each face is cut, worked out once per mesh), so their
-integrals need no split arrays (no vertex ids, owners, shared face centres or concatenations):
-this module forms them per chunk of cells of one face code from the gathered corners, in cache.
+jittered mesh. The centres are their corners' means in coordinates and values alike. Those
+tetrahedra are fixed by the cell's own eight corners and its face code (how each face is cut,
+worked out once per mesh), so their integrals need no split arrays (no vertex ids, owners,
+shared face centres or concatenations): this module forms them per chunk of cells with the
+same faces centred (on a jittered mesh one set, none) from the gathered corners, in cache, each
+face's corners picked per cell from corner 0 or corner 1 by its diagonal (:func:`_seen_corners`:
+one table for the 64 ways six faces can be cut, not chunks of a few cells per way).
 
 What is integrated, per tetrahedron t of volume V_t with linear c:
 
@@ -117,19 +119,42 @@ def coned_hexahedra(mesh: Mesh) -> list | None:
     return mesh.memo("coned_hexahedra", compute)
 
 
-def _tetrahedra(code: int) -> tuple:
-    """The tetrahedra of a coned hexahedron with face code ``code``, as vertex triples joined to the
-    cell centre: corners 0-7, face centres 8-13. A face with a centre gives four (edge and face
-    centre), another face two, cut along the diagonal the code names (as the split does)."""
+#: vertex numbers of a face's corners as its cut sees them: face j's corner k is vertex 14 + 4 j + k,
+#: corner k of the face (``FACES`` order) where it is cut along 0-2, corner k + 1 where along 1-3
+_TURNED = 14
+
+
+def _tetrahedra(centred: int) -> tuple:
+    """The tetrahedra of a coned hexahedron whose faces with a centre are the bits of ``centred``,
+    as vertex triples joined to the cell centre: corners 0-7, face centres 8-13, a face's corners
+    as its cut sees them 14-37 (:data:`_TURNED`). A face with a centre gives four (edge and face
+    centre), another face two, cut along its seen corners 0-2 (as the split does): one table for
+    the cells of every diagonal choice (a face code per choice made chunks of a few cells)."""
     out = []
     for j, face in enumerate(_HEX_FACES):
-        if code >> j & 1:
+        if centred >> j & 1:
             out += [(face[i], face[(i + 1) % 4], 8 + j) for i in range(4)]
-        elif code >> (6 + j) & 1:
-            out += [(face[1], face[2], face[3]), (face[1], face[3], face[0])]
         else:
-            out += [(face[0], face[1], face[2]), (face[0], face[2], face[3])]
+            a, b, c, d = range(_TURNED + 4 * j, _TURNED + 4 * j + 4)
+            out += [(a, b, c), (a, c, d)]
     return tuple(out)
+
+
+def _seen_corners(rows: list, codes: np.ndarray, tets: tuple) -> list:
+    """``rows`` (per vertex 0-7, or 0-13 with the face centres: arrays (n,) or lists of them)
+    extended to the vertices 14-37 the tetrahedra read: per face cut along a diagonal, its corners
+    from corner 0 (cut along 0-2, bit 6 + j of ``codes`` clear) or from corner 1 (along 1-3)."""
+    out = list(rows) + [None] * (_TURNED + 24 - len(rows))
+    used = {v for tet in tets for v in tet if v >= _TURNED}
+    for j, face in enumerate(_HEX_FACES):
+        if _TURNED + 4 * j not in used:
+            continue
+        turned = (codes >> (6 + j) & 1).astype(bool)
+        every, some = turned.all(), turned.any()
+        for k in range(4):
+            here, next_ = rows[face[k]], rows[face[(k + 1) % 4]]
+            out[_TURNED + 4 * j + k] = next_ if every else np.where(turned, next_, here) if some else here
+    return out
 
 
 class _HexCells:
@@ -164,34 +189,40 @@ class _HexCells:
         self.known = np.zeros(mesh.n_points, dtype=bool)
         self.need = np.zeros(mesh.n_points, dtype=bool)
         self.band = self.mixed = self.total_gradient = 0.0
-        self.chunks = []  # (tetrahedra, block connectivity, its rows (n,), weights (n_tetrahedra, n))
+        self.chunks = []  # (tetrahedra, block connectivity, its rows (n,), face codes (n,), weights (n_tetrahedra, n))
         self.smooth_chunks = []  # (block connectivity, its rows (n,), weights (n,)) of cells by quadrature
         self.count = 0
         for block, start, (local, codes) in zip(mesh.blocks, mesh.block_offsets[:-1], rows):
             if local.size == 0:
                 continue
-            counts = np.bincount(codes, minlength=1 << 12)
-            for code in np.flatnonzero(counts):  # cells of one face code at a time (few codes)
-                chosen = local if counts[code] == local.size else local[codes == code]
+            if _QUADRATURE:  # cells no band edge crosses: by the cell's trilinear map (any face code)
+                low_all, high_all = low[start + local], high[start + local]
+                inside = (low_all > _LOW) & (high_all < _HIGH)
+                smooth = inside | (high_all < _LOW) | (low_all > _HIGH)
+                for lo in range(0, local.size, _CELL_CHUNK):
+                    pick = slice(lo, lo + _CELL_CHUNK)
+                    if smooth[pick].any():
+                        self._smooth(block.connectivity, local[pick][smooth[pick]], clipped, columns, start,
+                                     inside[pick][smooth[pick]])
+                if smooth.any():
+                    local, codes = local[~smooth], codes[~smooth]
+            centred = codes & 63
+            counts = np.bincount(centred, minlength=64)
+            for code in np.flatnonzero(counts):  # cells of one set of centred faces at a time (few sets)
+                one = counts[code] == local.size
+                chosen, chosen_codes = (local, codes) if one else (local[centred == code], codes[centred == code])
                 tets = _tetrahedra(int(code))
                 for lo in range(0, chosen.size, _CELL_CHUNK):
-                    part = chosen[lo:lo + _CELL_CHUNK]
+                    part, part_codes = chosen[lo:lo + _CELL_CHUNK], chosen_codes[lo:lo + _CELL_CHUNK]
                     low_part, high_part = low[start + part], high[start + part]
-                    if _QUADRATURE:  # cells no band edge crosses: by the cell's trilinear map
-                        inside = (low_part > _LOW) & (high_part < _HIGH)
-                        smooth = inside | (high_part < _LOW) | (low_part > _HIGH)
-                        if smooth.any():
-                            self._smooth(block.connectivity, part[smooth], clipped, columns, start, inside[smooth])
-                            part, low_part, high_part = part[~smooth], low_part[~smooth], high_part[~smooth]
-                            if part.size == 0:
-                                continue
-                    weights = self._chunk(tets, block.connectivity[part], clipped, columns, low_part, high_part)
-                    self.chunks.append((tets, block.connectivity, part, weights))
+                    weights = self._chunk(tets, block.connectivity[part], part_codes, clipped, columns,
+                                          low_part, high_part)
+                    self.chunks.append((tets, block.connectivity, part, part_codes, weights))
         # the corners of cells where c varies: those of the cells where it varies on every
         # tetrahedron are all known, the others were marked as they came
         self.need |= self.known
 
-    def _chunk(self, tets, conn, values, columns, low, high) -> np.ndarray:
+    def _chunk(self, tets, conn, codes, values, columns, low, high) -> np.ndarray:
         """Integrals of one chunk of cells added up; returns the tetrahedra's gradient weights.
 
         The weights are kept as six times the measure times |grad c| (``_SIX``), the volumes as
@@ -207,8 +238,10 @@ class _HexCells:
         # tetrahedron reads them
         e = [[X[q][d] - centre[d] for d in range(3)] for q in range(8)] + [None] * 6
         v += [None] * 6
-        dv, v2 = [None] * 14, [None] * 14
-        for f in sorted({f for _, _, f in tets if f >= 8}):
+        e = _seen_corners(e, codes, tets)  # (the same arrays, or picked by face: 8 of them per cell)
+        v = _seen_corners(v, codes, tets)
+        dv, v2 = [None] * len(v), [None] * len(v)
+        for f in sorted({f for _, _, f in tets if 8 <= f < _TURNED}):
             a, b, c, d = _HEX_FACES[f - 8]
             e[f] = [(((X[a][k] + X[b][k]) + X[c][k]) + X[d][k]) / 4.0 - centre[k] for k in range(3)]
             v[f] = (((v[a] + v[b]) + v[c]) + v[d]) / 4.0
@@ -275,9 +308,12 @@ class _HexCells:
         partly = np.flatnonzero(varying.any(axis=0) & ~every)
         if partly.size:  # (the corners of the other cells needed are the known ones: see __init__)
             some = varying[:, partly]
+            seen = _seen_corners([i[partly] for i in ids], codes[partly], tets)
+            for t, tet in enumerate(tets):
+                for q in tet:
+                    if not 8 <= q < _TURNED:  # a corner (face centres are no mesh points)
+                        self.known[seen[q][some[t]]] = True
             for q in range(8):
-                rows = [t for t, tet in enumerate(tets) if q in tet]
-                self.known[ids[q][partly[some[rows].any(axis=0)]]] = True
                 self.need[ids[q][partly]] = True
         # band volume: whole cells inside, tetrahedra of the cells a band edge crosses
         inside = (low > _LOW) & (high < _HIGH)
@@ -342,7 +378,7 @@ class _HexCells:
             m0 += _SIX * float(w.sum())
             m1 += 4.0 * _SIX * dot(w, dm[ok])
             m2 += 20.0 * _SIX * dot(w, squares[ok] / 3.0 + (2.0 / 3.0) * dm[ok] * dm[ok])
-        for tets, connectivity, part, weights in self.chunks:
+        for tets, connectivity, part, codes, weights in self.chunks:
             # the chunk's corners gathered again: 8 bytes a cell kept, not 64
             d, dm = _corner_distances(dist, connectivity[part])
             ok = np.isfinite(dm)
@@ -352,10 +388,12 @@ class _HexCells:
                 d = [x[ok] for x in d]
                 dm = dm[ok]
                 weights = weights[:, ok]
+                codes = codes[ok]
             d += [None] * 6
-            for f in {f for _, _, f in tets if f >= 8}:
+            for f in {f for _, _, f in tets if 8 <= f < _TURNED}:
                 a, b, c, e = _HEX_FACES[f - 8]
                 d[f] = (((d[a] + d[b]) + d[c]) + d[e]) / 4.0
+            d = _seen_corners(d, codes, tets)
             squares = [None if x is None else x * x for x in d]
             pairs, apexes = {}, {}
             m0 += float(weights.sum())
