@@ -331,3 +331,34 @@ def test_faces_cut_two_ways_take_the_shorter_diagonal_or_a_centre_on_a_tie(centr
                     for facet in itertools.combinations(sorted(simplex), 3))
     assert set(count.values()) == {1, 2}
     assert split.measures.sum() == pytest.approx(np.linalg.det(shear), rel=1e-12)
+
+
+def _turned_cells(split, n_cells) -> int:
+    """Cells with tetrahedra of both orientations (the split overlapping itself there)."""
+    X = split.corner_values(split.points)
+    E = X[:, 1:] - X[:, :1]
+    positive = np.einsum("ni,ni->n", E[:, 0], np.cross(E[:, 1], E[:, 2])) > 0
+    count = np.bincount(split.owner, minlength=n_cells)
+    up = np.bincount(split.owner, positive, minlength=n_cells)
+    return int(np.count_nonzero((up > 0) & (up < count)))
+
+
+def test_faces_bent_so_far_a_diagonal_would_turn_a_tetrahedron_keep_a_centre(monkeypatch):
+    # corners moved up to 0.3 of a cell: some faces are bent so far that a triangle of their
+    # shorter diagonal, joined to a cell centre, is seen from behind (a tetrahedron of the other
+    # orientation: the split would overlap itself). Those faces keep a centre: no cell then has
+    # tetrahedra of both orientations (geometry of the mesh itself), the split conforms and fills
+    # the unit cube; without the fallback some cells would
+    from phasegauge.model import simplices
+
+    mesh = grid_mesh((8, 8, 8), kind="hexahedron", jitter=0.3, seed=11)
+    split = split_cells(mesh)
+    assert any(corners.shape[1] == 4 for _, corners in split.centres)
+    assert _turned_cells(split, mesh.n_cells) == 0
+    count = Counter(facet for simplex in split.simplices.tolist()
+                    for facet in itertools.combinations(sorted(simplex), 3))
+    assert set(count.values()) == {1, 2}
+    assert split.measures.sum() == pytest.approx(1.0, rel=1e-12)
+    monkeypatch.setattr(simplices, "turned_faces", lambda kind, P, along13: np.zeros(along13.shape, bool))
+    bare = grid_mesh((8, 8, 8), kind="hexahedron", jitter=0.3, seed=11)
+    assert _turned_cells(split_cells(bare), bare.n_cells) > 0

@@ -8,6 +8,13 @@ summed over the same axes in the same order), so both choose the same diagonal a
 conforms. The choice reads coordinates only, never point or cell numbers: renumbering a mesh
 leaves it unchanged. Where the two lengths are equal within a relative ``_TIE`` no choice is
 free of the numbering, and the face keeps a centre (split in four about its corners' mean).
+
+A face bent so far that one of its two triangles, joined to the centre of a cell beside it
+(a pyramid's apex), makes a tetrahedron turned against that cell's others also keeps a centre
+(:func:`turned_faces`; either side's finding marks the face for both, so they agree; it too reads
+coordinates only): the split would overlap itself there. On 20^3 jittered hexahedra (corners
+moved up to 0.25, 0.3, 0.35 of a cell) the shorter diagonals alone turned tetrahedra in 3, 32 and
+180 cells; with the fallback in 0, 0 and 3 (a centre on every bent face: 0, 0 and 4).
 """
 
 from __future__ import annotations
@@ -16,7 +23,7 @@ import numpy as np
 
 from .cells import FACES
 
-__all__ = ["shorter_diagonals", "diagonal_triangles"]
+__all__ = ["shorter_diagonals", "diagonal_triangles", "turned_faces"]
 
 #: two diagonals this close (relative to the longer) are a tie: the face gets a centre
 _TIE = 1e-9
@@ -54,3 +61,43 @@ def diagonal_triangles(F: np.ndarray, along13: np.ndarray) -> tuple:
     first = np.where(along13[:, None], F[:, [1, 2, 3]], F[:, [0, 1, 2]])
     second = np.where(along13[:, None], F[:, [1, 3, 0]], F[:, [0, 2, 3]])
     return first, second
+
+
+def _volume6(a, b, c, m) -> np.ndarray:
+    """Six times the signed volume of the tetrahedra (a, b, c, m), points as lists of 3 arrays."""
+    e1 = [a[i] - m[i] for i in range(3)]
+    e2 = [b[i] - m[i] for i in range(3)]
+    e3 = [c[i] - m[i] for i in range(3)]
+    return (e1[0] * (e2[1] * e3[2] - e2[2] * e3[1]) + e1[1] * (e2[2] * e3[0] - e2[0] * e3[2])
+            + e1[2] * (e2[0] * e3[1] - e2[1] * e3[0]))
+
+
+def turned_faces(cell_type: str, P: list, along13: np.ndarray) -> np.ndarray:
+    """Per cell and quad face (n, number of quad faces): whether a triangle of the face, cut as
+    ``along13`` says (:func:`shorter_diagonals`), joined to the cell's centre (the corners' mean; a
+    pyramid's apex) gives a tetrahedron of the opposite orientation to the cell's (the sum of all
+    its face triangles' tetrahedra, ``FACES`` being all outward). ``P`` as for
+    :func:`shorter_diagonals`."""
+    if cell_type == "pyramid":
+        m = P[4]
+    else:
+        m = [sum((P[j][i] for j in range(1, len(P))), P[0][i]) / len(P) for i in range(3)]
+    total = 0.0
+    quads = []
+    for face in FACES[cell_type]:
+        if len(face) == 3:
+            if cell_type != "pyramid":  # (a pyramid's triangles hold its apex)
+                total = total + _volume6(*(P[j] for j in face), m)
+            continue
+        p0, p1, p2, p3 = (P[j] for j in face)
+        q = len(quads)
+        cut = along13[:, q]
+        # along 0-2: (0, 1, 2), (0, 2, 3); along 1-3: (1, 2, 3), (1, 3, 0)
+        first = np.where(cut, _volume6(p1, p2, p3, m), _volume6(p0, p1, p2, m))
+        second = np.where(cut, _volume6(p1, p3, p0, m), _volume6(p0, p2, p3, m))
+        quads.append((first, second))
+        total = total + first + second
+    out = np.empty(along13.shape, dtype=bool)
+    for q, (first, second) in enumerate(quads):
+        out[:, q] = (first * total < 0) | (second * total < 0)
+    return out

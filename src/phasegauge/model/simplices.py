@@ -17,7 +17,8 @@ How each cell is split (tables in :mod:`._split_tables`):
 * a quad face that is bent, or whose two sides' tables cut it along different
   diagonals, is cut along its shorter diagonal (:mod:`._face_diagonals`: both sides
   compare the same two lengths of the same four points, so they agree); where the two
-  diagonals tie it gets a face centre and is split in four about it. A hexahedron or
+  diagonals tie, or where a triangle of that cut would make a tetrahedron turned against
+  its cell's others, it gets a face centre and is split in four about it. A hexahedron or
   wedge with such a face is coned from its cell centre to all of its face triangles
   (12 tetrahedra for a hexahedron; its other quad faces cut along the diagonal both
   sides' tables use), a pyramid from its apex (2 tetrahedra).
@@ -44,7 +45,7 @@ from functools import cached_property
 import numpy as np
 
 from .corners import corner_mean
-from ._face_diagonals import diagonal_triangles, shorter_diagonals
+from ._face_diagonals import diagonal_triangles, shorter_diagonals, turned_faces
 from ._grouping import group_columns, group_numbers, sort_small_rows
 from ._split_tables import CONED_TYPES, TABLE, TABLE_DIAGONALS
 from .cells import FACES
@@ -158,7 +159,8 @@ def _split_plan(mesh: Mesh, *, threads: int = 1) -> list:
 
     A quad face that is bent (seen so from either side), or that the two cells sharing it
     cut along different diagonals, is cut along its shorter diagonal (a centre where the two
-    tie: :mod:`._face_diagonals`); a cell with such a face is coned. Blocks of other types: None.
+    tie or a triangle would turn a tetrahedron: :mod:`._face_diagonals`); a cell with such a
+    face is coned. Blocks of other types: None.
     ``threads``: threads that go through the cells when the plan is made (chunks of cells side
     by side; the plan is the same on any number: each chunk only marks faces and writes its own
     diagonals and its own cells' shorter diagonals, and whichever side's diagonal a shared face
@@ -175,6 +177,7 @@ def _split_plan(mesh: Mesh, *, threads: int = 1) -> list:
         n_faces = 1 + max(int(ids.max()) for ids, kind in zip(numbers, kinds)
                           if kind in CONED_TYPES and ids.size)
         centred = np.zeros(n_faces, dtype=bool)  # bent faces, then also those cut two ways
+        turned = np.zeros(n_faces, dtype=bool)  # faces whose shorter diagonal's triangles turn a tetrahedron
         last = np.full(n_faces, -1, dtype=np.int64)
         n_points = np.int64(max(mesh.n_points, 1))
         columns = [np.ascontiguousarray(mesh.coordinates[:, i]) for i in range(3)]
@@ -192,10 +195,12 @@ def _split_plan(mesh: Mesh, *, threads: int = 1) -> list:
             flat = _flat_faces(kind, corners)
             along13, tie = shorter[id(block)]
             along13[lo:lo + _CHUNK], tie[lo:lo + _CHUNK] = shorter_diagonals(kind, corners)
+            turns = turned_faces(kind, corners, along13[lo:lo + _CHUNK])
             keys = _diagonal_keys(kind, part, n_points)
             for q, j in enumerate(_quad_positions(kind)):
                 face = ids[lo:lo + _CHUNK, j]
                 centred[face[~flat[:, q]]] = True
+                turned[face[turns[:, q]]] = True
                 last[face] = keys[:, q]
 
         def cut_two_ways(chunk):  # a face whose other side wrote another diagonal
@@ -223,7 +228,7 @@ def _split_plan(mesh: Mesh, *, threads: int = 1) -> list:
             table13 = np.array([TABLE_DIAGONALS[kind][j] != (FACES[kind][j][0], FACES[kind][j][2])
                                 for j in _quad_positions(kind)])
             np.copyto(along13, table13, where=~faces)  # the other faces: the diagonal both tables use
-            out.append(_ConedCells(coned, faces & tie, along13))
+            out.append(_ConedCells(coned, faces & (tie | turned[ids[:, _quad_positions(kind)]]), along13))
         return out
 
     return mesh.memo("simplex_split_plan", compute)
