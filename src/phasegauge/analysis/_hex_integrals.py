@@ -46,7 +46,7 @@ most of the cells where c varies) take a quadrature of the cell's trilinear map 
 fraction of the work: int |grad c| = V |grad c| at the cell centre (J^-T dc/dxi there, by
 Cramer's rule), V the cell's volume (:attr:`Mesh.cell_measures`, exact for the trilinear map);
 int c (1 - c) and the moments' int d and int d^2 by the rule V ((1/3) mean over the corners +
-(2/3) value at the centre), the centre's value the corners' mean; a band cell adds V. On an
+(2/3) value at the centre), the centre's value the corners' mean. On an
 affine cell (a parallelepiped) with c and d linear every one of these is exact, the same as the
 split's to round-off (tested). Otherwise the rule integrates the trilinear interpolant where the
 split integrates its piecewise-linear one: both are O(h^2) from the field, and they differ by
@@ -57,10 +57,11 @@ int c (1 - c) per area and eps 1.062 and 1.016 against 1.063 and 1.016 (analytic
 sphere of radius 0.3 at 4 cells across (32^3 cells) the threshold-free width moves from +5.2 %
 to +5.6 % of w, the second moment's from +4.9 % to +5.5 %, within the tolerances the split meets
 (``tests/analysis/test_hex_integrals.py``). The cells a band edge crosses keep the split, so the
-band volume (``interface_width``) keeps its exact band edges. (A cell whose bent faces the split
-cuts along diagonals holds, over its tetrahedra, V plus or minus what lies between each face and
-its two triangles, which the neighbour across the face loses or gains: the totals agree, and where
-a band cell meets a cell a band edge crosses the band volume moves by that sliver, of either sign.)
+band volume (``interface_width``) keeps its exact band edges. A band cell adds the volume of its
+tetrahedra in the split, not V: a bent face cut along a diagonal moves what lies between it and
+its two triangles from one of its cells to the other (:func:`_split_volumes`, V corrected face by
+face), so the band volume is the split's to round-off (with V it moved by about 1e-4 where band
+cells meet cells a band edge crosses).
 """
 
 from __future__ import annotations
@@ -202,8 +203,8 @@ class _HexCells:
                 for lo in range(0, local.size, _CELL_CHUNK):
                     pick = slice(lo, lo + _CELL_CHUNK)
                     if smooth[pick].any():
-                        self._smooth(block.connectivity, local[pick][smooth[pick]], clipped, columns, start,
-                                     inside[pick][smooth[pick]])
+                        self._smooth(block.connectivity, local[pick][smooth[pick]], codes[pick][smooth[pick]],
+                                     clipped, columns, start, inside[pick][smooth[pick]])
                 if smooth.any():
                     local, codes = local[~smooth], codes[~smooth]
             centred = codes & 63
@@ -328,8 +329,9 @@ class _HexCells:
                                                                 np.tile(vm[cut], len(tets))]) / _SIX
         return weights
 
-    def _smooth(self, connectivity, part, values, columns, start, inside):
-        """Integrals of cells no band edge crosses, by the cell's trilinear map (see the module notes)."""
+    def _smooth(self, connectivity, part, codes, values, columns, start, inside):
+        """Integrals of cells no band edge crosses, by the cell's trilinear map (see the module notes);
+        the band cells add the split's volume of the cell (:func:`_split_volumes`)."""
         conn = connectivity[part]
         ids = [conn[:, q] for q in range(8)]
         v = [values[i] for i in ids]
@@ -341,15 +343,18 @@ class _HexCells:
             j.append([corner_sum(X[q][d] for q in high_face) - corner_sum(X[q][d] for q in low_face)
                       for d in range(3)])
             b.append(corner_sum(v[q] for q in high_face) - corner_sum(v[q] for q in low_face))
-        del X
-
         a0, a1, a2 = _cross(j[1], j[2]), _cross(j[2], j[0]), _cross(j[0], j[1])
-        det = np.abs(_dot(j[0], a0))
+        det = _dot(j[0], a0)
+        volume = self.mesh.cell_measures[start + part]
+        if inside.any():
+            self.band += float(_split_volumes([[x[inside] for x in corner] for corner in X], codes[inside],
+                                              np.copysign(volume[inside], det[inside])).sum())
+        del X
+        np.abs(det, out=det)
         g2 = 0.0
         for d in range(3):
             g = b[0] * a0[d] + b[1] * a1[d] + b[2] * a2[d]
             g2 = g2 + g * g
-        volume = self.mesh.cell_measures[start + part]
         weights = np.zeros(part.size)
         ok = det > 0
         np.divide(np.sqrt(g2) * volume, det, out=weights, where=ok)
@@ -359,7 +364,6 @@ class _HexCells:
         # c linear on a parallelepiped)
         self.mixed += float(dot(volume, mean - squares / 3.0 - (2.0 / 3.0) * mean * mean))
         self.total_gradient += float(weights.sum())
-        self.band += float(volume[inside].sum())
         self.count += part.size
         varying = weights > 0
         for i in ids:
@@ -468,3 +472,30 @@ def _corner_distances(dist: np.ndarray, conn: np.ndarray) -> tuple:
     """The eight corners' distances of each row of ``conn`` (a list of 8 arrays) and their mean."""
     d = [dist[conn[:, q]] for q in range(8)]
     return d, corner_sum(d) / 8.0
+
+
+def _split_volumes(X: list, codes: np.ndarray, trilinear: np.ndarray) -> np.ndarray:
+    """The volumes of hexahedra over the split's tetrahedra, from their trilinear volumes.
+
+    ``X``: per corner its three coordinate arrays (n,); ``codes`` as :func:`coned_hexahedra`;
+    ``trilinear`` the cells' volumes signed as their orientation (the Jacobian at the centre).
+    A face with a centre encloses what the bilinear face does (the trilinear volume's share); a
+    face cut along its corners 0-2 encloses 1/12 of six times the signed volume of the tetrahedron of
+    its four corners less, along 1-3 as much more (the bilinear face lies halfway between the two
+    cuts). Exact for the split's tetrahedra when none is turned against its cell (the split sees to
+    that: ``model/_face_diagonals.py``); tested against their sum.
+    """
+    total = trilinear.copy()
+    for j, face in enumerate(_HEX_FACES):
+        centred = (codes >> j & 1).astype(bool)
+        if centred.all():
+            continue
+        p0, p1, p2, p3 = (X[q] for q in face)
+        e1 = [p1[i] - p0[i] for i in range(3)]
+        e2 = [p2[i] - p0[i] for i in range(3)]
+        e3 = [p3[i] - p0[i] for i in range(3)]
+        six = _dot(e1, _cross(e2, e3))
+        along13 = (codes >> (6 + j) & 1).astype(bool)
+        six[centred] = 0.0
+        total += np.where(along13, six, -six) / 12.0
+    return np.abs(total)
