@@ -63,13 +63,10 @@ def diagonal_triangles(F: np.ndarray, along13: np.ndarray) -> tuple:
     return first, second
 
 
-def _volume6(a, b, c, m) -> np.ndarray:
-    """Six times the signed volume of the tetrahedra (a, b, c, m), points as lists of 3 arrays."""
-    e1 = [a[i] - m[i] for i in range(3)]
-    e2 = [b[i] - m[i] for i in range(3)]
-    e3 = [c[i] - m[i] for i in range(3)]
-    return (e1[0] * (e2[1] * e3[2] - e2[2] * e3[1]) + e1[1] * (e2[2] * e3[0] - e2[0] * e3[2])
-            + e1[2] * (e2[0] * e3[1] - e2[1] * e3[0]))
+def _det(a, b, c) -> np.ndarray:
+    """a . (b x c), points as lists of 3 arrays: six times the signed volume of (a, b, c, origin)."""
+    return (a[0] * (b[1] * c[2] - b[2] * c[1]) + a[1] * (b[2] * c[0] - b[0] * c[2])
+            + a[2] * (b[0] * c[1] - b[1] * c[0]))
 
 
 def turned_faces(cell_type: str, P: list, along13: np.ndarray) -> np.ndarray:
@@ -78,23 +75,25 @@ def turned_faces(cell_type: str, P: list, along13: np.ndarray) -> np.ndarray:
     pyramid's apex) gives a tetrahedron of the opposite orientation to the cell's (the sum of all
     its face triangles' tetrahedra, ``FACES`` being all outward). ``P`` as for
     :func:`shorter_diagonals`."""
-    if cell_type == "pyramid":
-        m = P[4]
-    else:
-        m = [sum((P[j][i] for j in range(1, len(P))), P[0][i]) / len(P) for i in range(3)]
+    k = len(P)
+    m = P[4] if cell_type == "pyramid" else [sum((P[j][i] for j in range(1, k)), P[0][i]) / k for i in range(3)]
+    R = [[P[j][i] - m[i] for i in range(3)] for j in range(k)]  # corners from the centre
     total = 0.0
     quads = []
     for face in FACES[cell_type]:
         if len(face) == 3:
             if cell_type != "pyramid":  # (a pyramid's triangles hold its apex)
-                total = total + _volume6(*(P[j] for j in face), m)
+                total = total + _det(*(R[j] for j in face))
             continue
-        p0, p1, p2, p3 = (P[j] for j in face)
-        q = len(quads)
-        cut = along13[:, q]
-        # along 0-2: (0, 1, 2), (0, 2, 3); along 1-3: (1, 2, 3), (1, 3, 0)
-        first = np.where(cut, _volume6(p1, p2, p3, m), _volume6(p0, p1, p2, m))
-        second = np.where(cut, _volume6(p1, p3, p0, m), _volume6(p0, p2, p3, m))
+        cut = along13[:, len(quads)]
+        # the face's corners from corner 0 (cut along 0-2) or from corner 1 (along 1-3): the
+        # triangles are then (g0, g1, g2) and (g0, g2, g3)
+        if cut.all() or not cut.any():  # (one way for all: no picking)
+            shift = int(cut.all())
+            g = [R[face[(i + shift) % 4]] for i in range(4)]
+        else:
+            g = [[np.where(cut, R[face[(i + 1) % 4]][d], R[face[i]][d]) for d in range(3)] for i in range(4)]
+        first, second = _det(g[0], g[1], g[2]), _det(g[0], g[2], g[3])
         quads.append((first, second))
         total = total + first + second
     out = np.empty(along13.shape, dtype=bool)
