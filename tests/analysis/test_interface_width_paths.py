@@ -152,7 +152,7 @@ def _reference(mesh, c_point, level=0.5):
                                          ("wedge", 0.2), ("pyramid", 0.0), ("mixed", 0.2),
                                          ("triangle", 0.2), ("quad", 0.2), ("polygon", 0.0)])
 def test_integrals_match_a_per_simplex_reference(monkeypatch, kind, jitter):
-    # (hexahedra coned by the split: over its 24 tetrahedra in every cell here, not the trilinear
+    # (hexahedra coned by the split: over its tetrahedra in every cell here, not the trilinear
     # quadrature of the cells no band edge crosses, which test_hex_integrals.py checks)
     monkeypatch.setattr(hex_module, "_QUADRATURE", False)
     dim = 2 if kind in ("triangle", "quad", "polygon") else 3

@@ -143,6 +143,7 @@ def test_split_plan_is_the_same_on_any_number_of_threads(kind, monkeypatch):
             if a is not None:
                 np.testing.assert_array_equal(a.coned, b.coned)
                 np.testing.assert_array_equal(a.centred, b.centred)
+                np.testing.assert_array_equal(a.along13, b.along13)
 
 
 @pytest.mark.parametrize("kind", ["hexahedron", "tetra", "grid", "polyhedron"])

@@ -97,11 +97,21 @@ def test_shared_faces_are_cut_alike_from_both_sides(kind, jitter, quads):
         assert all(c == cut[0] for c in cut), (kind, sorted(corners))
         shared += len(cut) == 2
         # ... and the whole face: their areas add up to the face's, taken as the fan of triangles
-        # about its corner mean (the face itself when flat; a bent face is always cut so)
+        # about its corner mean where the split added a centre, else as the two triangles along
+        # the shorter diagonal (the face itself when flat, whichever diagonal; a bent quad face is
+        # cut so, its centre kept only where the two diagonals tie)
         ring = [p for p in _ring(mesh, corners)]
         centre = X[ring].mean(axis=0)
-        whole = (_area(X[ring]) if len(ring) == 2 else
-                 sum(_area(np.array([X[ring[i]], X[ring[(i + 1) % len(ring)]], centre])) for i in range(len(ring))))
+        fan = any(v >= mesh.n_points for f in cut[0] for v in f) or len(ring) != 4
+        if len(ring) == 2:
+            whole = _area(X[ring])
+        elif fan:
+            whole = sum(_area(np.array([X[ring[i]], X[ring[(i + 1) % len(ring)]], centre])) for i in range(len(ring)))
+        else:
+            a, b, c, d = ring
+            if np.linalg.norm(X[b] - X[d]) < np.linalg.norm(X[a] - X[c]):
+                a, b, c, d = b, c, d, a
+            whole = _area(X[[a, b, c]]) + _area(X[[a, c, d]])
         assert sum(_area(X[list(f)]) for f in cut[0]) == pytest.approx(whole, rel=1e-12)
     assert shared > 0
 
@@ -130,9 +140,45 @@ def test_split_leaves_no_gap_inside_and_covers_the_boundary(kind, jitter):
     assert outer == pytest.approx(4.0 if mesh.dimension == 2 else 6.0, rel=1e-12)
 
 
+def _enclosed_volumes(mesh: Mesh) -> np.ndarray:
+    """Per 3D cell, the volume its faces enclose (divergence theorem: a sixth of the sum of
+    a . (b x c) over its boundary triangles), each quad face cut along its shorter diagonal, or
+    about its corner mean where the two diagonals tie (the rule of ``model/_face_diagonals.py``;
+    a flat face encloses the same volume whichever way it is cut)."""
+    out = []
+    X = mesh.coordinates
+    for block in mesh.blocks:
+        if block.cell_type == "tetra":  # (not asked for: no quad face)
+            out += [np.nan] * len(block)
+            continue
+        for conn in block.connectivity.tolist():
+            volume = 0.0
+            for face in FACES[block.cell_type]:
+                ring = [X[conn[j]] for j in face]
+                if len(ring) == 3:
+                    triangles = [ring]
+                else:
+                    a, b, c, d = ring
+                    d02, d13 = np.linalg.norm(a - c), np.linalg.norm(b - d)
+                    if abs(d02 - d13) <= 1e-9 * max(d02, d13):
+                        m = (a + b + c + d) / 4
+                        triangles = [[ring[i], ring[(i + 1) % 4], m] for i in range(4)]
+                    elif d13 < d02:
+                        triangles = [[b, c, d], [b, d, a]]
+                    else:
+                        triangles = [[a, b, c], [a, c, d]]
+                volume += sum(float(np.dot(t[0], np.cross(t[1], t[2]))) for t in triangles)
+            out.append(abs(volume) / 6.0)
+    return np.array(out)
+
+
 @pytest.mark.parametrize("kind,jitter", CASES)
 def test_simplex_measures_add_up_to_vtk_cell_sizes(kind, jitter):
-    # pyvista / VTK compute_cell_sizes (wedge volumes come out negative in VTK's orientation: abs)
+    # pyvista / VTK compute_cell_sizes (wedge volumes come out negative in VTK's orientation: abs):
+    # cell by cell where the faces are flat (VTK's volume is the trilinear map's); with bent quad
+    # faces cut along a diagonal a cell gains or loses what lies between the face and its two
+    # triangles, which its neighbour loses or gains: cell by cell the volume the triangulated faces
+    # enclose (divergence theorem), and over the mesh VTK's total (the unit cube's faces are flat)
     import pyvista
 
     mesh = _mesh(kind, jitter)
@@ -142,7 +188,13 @@ def test_simplex_measures_add_up_to_vtk_cell_sizes(kind, jitter):
     for quads in ("diagonal", "centre"):
         split = split_cells(mesh, quads=quads)
         ours = np.bincount(split.owner, split.measures, minlength=mesh.n_cells)
-        np.testing.assert_allclose(ours, reference, rtol=1e-12)
+        if mesh.dimension == 3 and jitter > 0:
+            quad_faced = np.concatenate([np.full(len(b), b.cell_type != "tetra") for b in mesh.blocks])
+            expected = np.where(quad_faced, _enclosed_volumes(mesh), reference)
+            np.testing.assert_allclose(ours, expected, rtol=1e-12)
+            assert ours.sum() == pytest.approx(reference.sum(), rel=1e-12)
+        else:
+            np.testing.assert_allclose(ours, reference, rtol=1e-12)
 
 
 @pytest.mark.parametrize("kind,jitter", CASES)
@@ -173,7 +225,7 @@ def _keyed(split, point_names=None) -> Counter:
                    for simplex, owner in zip(split.simplices.tolist(), split.owner.tolist()))
 
 
-@pytest.mark.parametrize("kind", ["wedge", "mixed", "pyramid", "turned"])
+@pytest.mark.parametrize("kind", ["wedge", "mixed", "pyramid", "turned", "hexahedron"])
 def test_renumbering_points_leaves_the_split_alone(kind):
     # the tables read local corner orders and compare diagonals by the points they join, never by
     # point numbers (the earlier wedge rule cut faces through their lowest point number, so
@@ -228,3 +280,85 @@ def test_values_at_some_vertices_equal_the_whole_table_rows():
         assert np.array_equal(split.corner_values(values), table[split.simplices])
     for ids_c, corners in split.centres:
         np.testing.assert_allclose(split.coordinates[ids_c], mesh.coordinates[corners].mean(axis=1), rtol=1e-14)
+
+
+def test_jittered_hexahedra_take_twelve_tetrahedra_that_conform_and_fill_each_cell():
+    # every inner face of a jittered hexahedral mesh is bent: cut along its shorter diagonal, the
+    # cells coned from their centre to two triangles a face, no face centre. Checked against the
+    # mesh itself: every inner facet shared by exactly two tetrahedra and the boundary ones making
+    # up the unit cube's surface 6 (exact geometry); each cell's tetrahedra filling the volume its
+    # triangulated faces enclose (divergence theorem), and all of them VTK's total volume
+    # (pyvista compute_cell_sizes; the trilinear cell volume differs cell by cell, by what lies
+    # between a bent face and its two triangles, which the cell across the face gains or loses)
+    import pyvista
+
+    mesh = grid_mesh((5, 4, 3), kind="hexahedron", jitter=0.2, seed=11)
+    split = split_cells(mesh)
+    assert split.simplices.shape[0] == 12 * mesh.n_cells
+    # no tetrahedron turned inside out: every one of a cell's tetrahedra has its cell's orientation
+    # (jitter 0.25 turns one here: a face bent so far that the cell centre sees a triangle from behind)
+    X = split.corner_values(split.points)
+    E = X[:, 1:] - X[:, :1]
+    orientation = np.sign(np.einsum("ni,ni->n", E[:, 0], np.cross(E[:, 1], E[:, 2])))
+    assert np.all(np.bincount(split.owner, orientation) == 12 * orientation[0])
+    assert sum(ids.size for ids, _ in split.centres) == mesh.n_cells  # the cell centres only
+    count = Counter(facet for simplex in split.simplices.tolist()
+                    for facet in itertools.combinations(sorted(simplex), 3))
+    assert set(count.values()) == {1, 2}
+    outer = sum(_area(split.coordinates[list(f)]) for f, n in count.items() if n == 1)
+    assert outer == pytest.approx(6.0, rel=1e-12)
+    ours = np.bincount(split.owner, split.measures, minlength=mesh.n_cells)
+    np.testing.assert_allclose(ours, _enclosed_volumes(mesh), rtol=1e-12)
+    vtk = np.abs(pyvista.from_meshio(to_meshio(mesh)).compute_cell_sizes(length=False, area=False).cell_data["Volume"])
+    assert ours.sum() == pytest.approx(vtk.sum(), rel=1e-12) == pytest.approx(1.0, rel=1e-12)
+    assert not np.allclose(ours, mesh.cell_measures, rtol=1e-6)  # (the trilinear volumes are others)
+    np.testing.assert_allclose(mesh.cell_measures, vtk, rtol=1e-12)
+
+
+@pytest.mark.parametrize("centres", [True, False])
+def test_faces_cut_two_ways_take_the_shorter_diagonal_or_a_centre_on_a_tie(centres):
+    # cells listing their corners from random corners: the tables cut shared faces along different
+    # diagonals. Parallelogram faces (the grid sheared) are cut along their shorter diagonal, no
+    # face centre; square faces (the unit cube) have no shorter one and keep a centre. Either way the
+    # split conforms (each inner facet in two tetrahedra) and fills the box (volume det S)
+    shear = np.eye(3) if centres else np.array([[1.0, 0.3, 0.1], [0.0, 1.0, -0.2], [0.0, 0.0, 1.0]])
+    grid = grid_mesh((3, 3, 3), kind="hexahedron")
+    mesh = _turned(Mesh(grid.points @ shear.T, [("hexahedron", grid.blocks[0].connectivity)]), seed=5)
+    split = split_cells(mesh)
+    face_centres = [ids for ids, corners in split.centres if corners.shape[1] == 4]
+    assert bool(face_centres) == centres
+    count = Counter(facet for simplex in split.simplices.tolist()
+                    for facet in itertools.combinations(sorted(simplex), 3))
+    assert set(count.values()) == {1, 2}
+    assert split.measures.sum() == pytest.approx(np.linalg.det(shear), rel=1e-12)
+
+
+def _turned_cells(split, n_cells) -> int:
+    """Cells with tetrahedra of both orientations (the split overlapping itself there)."""
+    X = split.corner_values(split.points)
+    E = X[:, 1:] - X[:, :1]
+    positive = np.einsum("ni,ni->n", E[:, 0], np.cross(E[:, 1], E[:, 2])) > 0
+    count = np.bincount(split.owner, minlength=n_cells)
+    up = np.bincount(split.owner, positive, minlength=n_cells)
+    return int(np.count_nonzero((up > 0) & (up < count)))
+
+
+def test_faces_bent_so_far_a_diagonal_would_turn_a_tetrahedron_keep_a_centre(monkeypatch):
+    # corners moved up to 0.3 of a cell: some faces are bent so far that a triangle of their
+    # shorter diagonal, joined to a cell centre, is seen from behind (a tetrahedron of the other
+    # orientation: the split would overlap itself). Those faces keep a centre: no cell then has
+    # tetrahedra of both orientations (geometry of the mesh itself), the split conforms and fills
+    # the unit cube; without the fallback some cells would
+    from phasegauge.model import simplices
+
+    mesh = grid_mesh((8, 8, 8), kind="hexahedron", jitter=0.3, seed=11)
+    split = split_cells(mesh)
+    assert any(corners.shape[1] == 4 for _, corners in split.centres)
+    assert _turned_cells(split, mesh.n_cells) == 0
+    count = Counter(facet for simplex in split.simplices.tolist()
+                    for facet in itertools.combinations(sorted(simplex), 3))
+    assert set(count.values()) == {1, 2}
+    assert split.measures.sum() == pytest.approx(1.0, rel=1e-12)
+    monkeypatch.setattr(simplices, "turned_faces", lambda kind, P, along13: np.zeros(along13.shape, bool))
+    bare = grid_mesh((8, 8, 8), kind="hexahedron", jitter=0.3, seed=11)
+    assert _turned_cells(split_cells(bare), bare.n_cells) > 0

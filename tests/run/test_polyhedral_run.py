@@ -50,11 +50,16 @@ def test_polyhedra_measure_like_the_hexahedra(files, field):
         assert poly["phase_volume"] == pytest.approx(hexa["phase_volume"], rel=1e-12)
     else:  # point data: the corner mean of each tetrahedron against that of each hexahedron
         assert poly["phase_volume"] == pytest.approx(hexa["phase_volume"], rel=1e-3)
-        # the same interpolant (jittered hexahedra with bent faces are coned about face centres too)
-        assert poly["interface_size"] == pytest.approx(hexa["interface_size"], rel=1e-6)
-        assert poly["interface_width"] == pytest.approx(hexa["interface_width"], rel=1e-3)
+        # two piecewise-linear interpolants O(h^2) apart: the polyhedra are split about face centres,
+        # the hexahedra's bent faces cut along their shorter diagonals (measured: areas -4.5 % and
+        # -3.5 % of the spheres' 4 pi sum(r^2) at this coarse resolution, band widths 1.6 % apart)
+        area = 4 * np.pi * sum(r * r for r in RADII)
+        assert poly["interface_size"] == pytest.approx(hexa["interface_size"], rel=0.02)
+        for row in (poly, hexa):
+            assert row["interface_size"] == pytest.approx(area, rel=0.06)
+        assert poly["interface_width"] == pytest.approx(hexa["interface_width"], rel=0.03)
         # widths in cells count whole polyhedra, not their tetrahedra
-        assert poly["interface_width_cells"] == pytest.approx(hexa["interface_width_cells"], rel=1e-2)
+        assert poly["interface_width_cells"] == pytest.approx(hexa["interface_width_cells"], rel=0.03)
     exact = sum(_ball_volume(r) for r in RADII)
     assert poly["phase_volume"] == pytest.approx(exact, rel=0.01)
 

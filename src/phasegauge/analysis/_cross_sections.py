@@ -294,8 +294,9 @@ def cross_sections(mesh: Mesh, c_point_or_indicator, *, axis="x", positions=None
     -----
     The section is exact for the piecewise-linear interpolant on a split of
     every cell into simplices (quads into 2 triangles; hexahedra, wedges and
-    pyramids into tetrahedra about their centre and face centres, so the
-    split conforms even where quad faces are not flat): for simplex meshes
+    pyramids with a bent quad face into tetrahedra from their centre, each
+    such face cut along its shorter diagonal, so the split conforms even
+    where quad faces are not flat): for simplex meshes
     this is the mesh's own interpolant; for quads and hexahedra it differs
     from the bilinear/trilinear one by O(h^2) inside a cell. A plane through mesh points takes the faces on its
     lower side (at the lowest mesh coordinate, those on its upper side), so

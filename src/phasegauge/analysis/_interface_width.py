@@ -333,7 +333,7 @@ def interface_metrics(mesh: Mesh, indicator, *, level: float = 0.5, contour: Con
     cells around each point, which smooths the profile slightly (widths come
     out a few % high at 4 cells across the interface, less when finer).
     Hexahedra the split cones (a face bent, or cut two ways by its cells) are
-    integrated cell by cell: over the split's own 24 tetrahedra where a band
+    integrated cell by cell: over the split's own 12 tetrahedra where a band
     edge crosses the cell, by a quadrature of the cell's trilinear map
     elsewhere (exact on parallelepipeds, within O(h^2) of the split
     otherwise), and the distances of such a mesh are searched against one

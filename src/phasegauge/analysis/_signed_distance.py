@@ -224,8 +224,8 @@ def _cell_pieces(geometry: _ContourGeometry, *, cells: np.ndarray | None = None,
     ``flat`` times its area (an interface of curvature radius R in cells of size h bends by
     O(h / R) within a cell); other cells (the level crossing one twice, a fold) keep their own
     elements. The plane of a piece is within O(h^2 / R) of its elements' own, so the distances
-    move at that order; the search tree is several times smaller (about 14 triangles per cell on
-    the 24-tetrahedra split of a hexahedron). The merge covers every cell of the contour: on a
+    move at that order; the search tree is several times smaller (several triangles per cell on
+    the 12-tetrahedra split of a coned hexahedron). The merge covers every cell of the contour: on a
     mesh with coned hexahedra the pieces in its wedges, pyramids and tetrahedra merge too.
 
     Measured against the analytic distance |r - R| to a sphere (with the least half-size of

@@ -12,9 +12,10 @@ of 0 or 1; only simplices a band edge passes through are sorted. Meshes of trian
 tetrahedra are read straight from their connectivity (:class:`_SplitBand`); regular
 hexahedral grids cut by the 6-tetrahedra table are integrated in grid index space, each
 tetrahedron's gradient being corner differences over the grid spacing
-(:class:`_GridBand`); hexahedra the split cones about face and cell centres (bent faces: jittered
-and curvilinear grids) are integrated cell by cell over the same 24 tetrahedra, formed from each
-cell's corners (:class:`._hex_integrals._HexBand`). All paths give the same integrals up to
+(:class:`_GridBand`); hexahedra the split cones from their cell centre (bent faces: jittered
+and curvilinear grids) are integrated cell by cell over the same tetrahedra (12 per cell, more
+with face centres), formed from each cell's corners (:class:`._hex_integrals._HexBand`). All
+paths give the same integrals up to
 round-off.
 """
 

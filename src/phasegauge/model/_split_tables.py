@@ -8,7 +8,9 @@ Two ways to split a cell, and the split of each quadrilateral face they imply:
   only, so the split does not depend on how a file numbers its points;
 * coned: from an added cell centre (hexahedra, wedges; quads and polygons in 2D) or from
   the apex (pyramids) to every face triangle, each quad face split in two along the
-  diagonal its neighbour uses too, or in four about an added face centre.
+  diagonal its neighbour uses too (the tables' where both agree and the face is flat, else
+  the shorter one: ``_face_diagonals``), or in four about an added face centre where the two
+  diagonals tie.
 
 ``TABLE_DIAGONALS`` names, per quad face of ``cells.FACES``, the diagonal the table cuts it
 along: the two sides of a shared face split it alike when these are the same two points.

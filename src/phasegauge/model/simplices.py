@@ -15,16 +15,20 @@ How each cell is split (tables in :mod:`._split_tables`):
   when each of their quad faces is flat and is cut along the same diagonal by the
   cell on its other side (or is on the boundary);
 * a quad face that is bent, or whose two sides' tables cut it along different
-  diagonals, gets a face centre and is split in four about it; a hexahedron or wedge
-  with such a face is coned from its cell centre to all of its face triangles (its
-  other quad faces cut along the diagonal both sides use), a pyramid from its apex.
+  diagonals, is cut along its shorter diagonal (:mod:`._face_diagonals`: both sides
+  compare the same two lengths of the same four points, so they agree); where the two
+  diagonals tie, or where a triangle of that cut would make a tetrahedron turned against
+  its cell's others, it gets a face centre and is split in four about it. A hexahedron or
+  wedge with such a face is coned from its cell centre to all of its face triangles
+  (12 tetrahedra for a hexahedron; its other quad faces cut along the diagonal both
+  sides' tables use), a pyramid from its apex (2 tetrahedra).
 
 A centre carries the mean of its corners, coordinates and values alike: the bilinear
 / trilinear value there, so a linear field is reproduced exactly. Which cells are coned
-and which faces centred depends on the mesh only: worked out once per mesh
+and how their faces are cut depends on the mesh only: worked out once per mesh
 (:meth:`Mesh.memo`), so a series pays for it once. Every choice reads local corner
-orders, flatness and which points a diagonal joins, never the numbers a file gives its
-points or cells: renumbering either leaves the split (and every result) unchanged.
+orders, flatness, coordinates and which points a diagonal joins, never the numbers a file
+gives its points or cells: renumbering either leaves the split (and every result) unchanged.
 
 References
 ----------
@@ -41,6 +45,7 @@ from functools import cached_property
 import numpy as np
 
 from .corners import corner_mean
+from ._face_diagonals import diagonal_triangles, shorter_diagonals, turned_faces
 from ._grouping import group_columns, group_numbers, sort_small_rows
 from ._split_tables import CONED_TYPES, TABLE, TABLE_DIAGONALS
 from .cells import FACES
@@ -138,21 +143,28 @@ def grid_corner_steps(mesh: Mesh) -> np.ndarray | None:
 
 @dataclass(frozen=True)
 class _ConedCells:
-    """Of one block: which cells are coned, and per cell which quad faces get a centre."""
+    """Of one block: which cells are coned, and per cell how each quad face is cut.
+
+    A quad face of a coned cell is cut along its face corners 1-3 where ``along13`` is set,
+    else along 0-2 (corners in ``FACES`` order), unless it gets a centre (``centred``).
+    """
 
     coned: np.ndarray  # (n,) bool
     centred: np.ndarray  # (n, number of quad faces) bool
+    along13: np.ndarray  # (n, number of quad faces) bool
 
 
 def _split_plan(mesh: Mesh, *, threads: int = 1) -> list:
     """Per block, None (every cell takes the table) or its :class:`_ConedCells` (cached per mesh).
 
-    A quad face gets a centre when it is bent (seen so from either side) or when the
-    two cells sharing it cut it along different diagonals; a cell with such a face is
-    coned. Blocks of other types: None. ``threads``: threads that go through the cells
-    when the plan is made (chunks of cells side by side; the plan is the same on any number:
-    each chunk only marks faces and writes its own diagonals, and whichever side's diagonal a
-    shared face keeps, the other side's differs exactly when the two sides differ).
+    A quad face that is bent (seen so from either side), or that the two cells sharing it
+    cut along different diagonals, is cut along its shorter diagonal (a centre where the two
+    tie or a triangle would turn a tetrahedron: :mod:`._face_diagonals`); a cell with such a
+    face is coned. Blocks of other types: None.
+    ``threads``: threads that go through the cells when the plan is made (chunks of cells side
+    by side; the plan is the same on any number: each chunk only marks faces and writes its own
+    diagonals and its own cells' shorter diagonals, and whichever side's diagonal a shared face
+    keeps, the other side's differs exactly when the two sides differ).
     """
 
     def compute():
@@ -165,21 +177,30 @@ def _split_plan(mesh: Mesh, *, threads: int = 1) -> list:
         n_faces = 1 + max(int(ids.max()) for ids, kind in zip(numbers, kinds)
                           if kind in CONED_TYPES and ids.size)
         centred = np.zeros(n_faces, dtype=bool)  # bent faces, then also those cut two ways
+        turned = np.zeros(n_faces, dtype=bool)  # faces whose shorter diagonal's triangles turn a tetrahedron
         last = np.full(n_faces, -1, dtype=np.int64)
         n_points = np.int64(max(mesh.n_points, 1))
         columns = [np.ascontiguousarray(mesh.coordinates[:, i]) for i in range(3)]
         chunks = [(kind, block, ids, lo) for kind, block, ids in zip(kinds, mesh.blocks, numbers)
                   if kind in CONED_TYPES for lo in range(0, len(block), _CHUNK)]  # temporaries stay in cache
+        # per block, cell and quad face: its shorter diagonal (face corners 1-3?) and a tie
+        shorter = {id(block): tuple(np.empty((len(block), len(_quad_positions(kind))), dtype=bool)
+                                    for _ in range(2))
+                   for kind, block in zip(kinds, mesh.blocks) if kind in CONED_TYPES}
 
         def bent_faces_and_diagonals(chunk):
             kind, block, ids, lo = chunk
             part = block.connectivity[lo:lo + _CHUNK]
             corners = [[x[part[:, j]] for x in columns] for j in range(part.shape[1])]
             flat = _flat_faces(kind, corners)
+            along13, tie = shorter[id(block)]
+            along13[lo:lo + _CHUNK], tie[lo:lo + _CHUNK] = shorter_diagonals(kind, corners)
+            turns = turned_faces(kind, corners, along13[lo:lo + _CHUNK])
             keys = _diagonal_keys(kind, part, n_points)
             for q, j in enumerate(_quad_positions(kind)):
                 face = ids[lo:lo + _CHUNK, j]
                 centred[face[~flat[:, q]]] = True
+                turned[face[turns[:, q]]] = True
                 last[face] = keys[:, q]
 
         def cut_two_ways(chunk):  # a face whose other side wrote another diagonal
@@ -194,13 +215,20 @@ def _split_plan(mesh: Mesh, *, threads: int = 1) -> list:
                 pass
         last = None  # (8 bytes a face, let go)
         out = []
-        for kind, ids in zip(kinds, numbers):
+        for kind, block, ids in zip(kinds, mesh.blocks, numbers):
             if kind not in CONED_TYPES:
                 out.append(None)
                 continue
-            faces = centred[ids[:, _quad_positions(kind)]]
+            faces = centred[ids[:, _quad_positions(kind)]]  # bent or cut two ways: the shorter diagonal
             coned = faces.any(axis=1)
-            out.append(_ConedCells(coned, faces) if coned.any() else None)
+            if not coned.any():
+                out.append(None)
+                continue
+            along13, tie = shorter[id(block)]
+            table13 = np.array([TABLE_DIAGONALS[kind][j] != (FACES[kind][j][0], FACES[kind][j][2])
+                                for j in _quad_positions(kind)])
+            np.copyto(along13, table13, where=~faces)  # the other faces: the diagonal both tables use
+            out.append(_ConedCells(coned, faces & (tie | turned[ids[:, _quad_positions(kind)]]), along13))
         return out
 
     return mesh.memo("simplex_split_plan", compute)
@@ -317,15 +345,6 @@ def _block_rows(mesh: Mesh, cells) -> list:
     return [chosen[a:z] - start for a, z, start in zip(bounds[:-1], bounds[1:], offsets[:-1])]
 
 
-def _face_triangles(cell_type: str, j: int, F: np.ndarray) -> tuple:
-    """The two triangles (n, 3) of quad face j (corners ``F`` (n, 4) in face order), cut along the
-    diagonal the cell's table uses."""
-    face = FACES[cell_type][j]
-    if TABLE_DIAGONALS[cell_type][j] == (face[0], face[2]):
-        return F[:, [0, 1, 2]], F[:, [0, 2, 3]]  # along the face's corners 0-2
-    return F[:, [1, 2, 3]], F[:, [1, 3, 0]]  # along 1-3
-
-
 class _Pieces:
     """The simplices, owners and added centres of a split, as they are built."""
 
@@ -365,8 +384,9 @@ def split_cells(mesh: Mesh, cells=None, *, values=None, quads: str = "diagonal")
     -------
     SimplexSplit
         Per block, the table's simplices first (simplex by simplex, each over
-        the block's cells), then those of coned cells; the centred quad faces'
-        simplices last. Face centres are shared by the cells on both sides.
+        the block's cells), then those of coned cells; the simplices about face
+        centres (quad faces whose diagonals tie) last. Face centres are shared by
+        the cells on both sides.
 
     Raises
     ------
@@ -405,7 +425,7 @@ def split_cells(mesh: Mesh, cells=None, *, values=None, quads: str = "diagonal")
                     pieces.add(conn_t[:, list(local)], ids_t)
             if coned is not None:
                 local = np.flatnonzero(coned) if rows is None else rows[coned]
-                pending += _cone(mesh, b, local, conn[coned], ids[coned], plan[b].centred[local], pieces)
+                pending += _cone(mesh, b, local, conn[coned], ids[coned], plan[b], pieces)
         else:  # pragma: no cover - the mesh model accepts no other type
             raise ValueError(f"no simplex split for cell type '{kind}'")
     if pending:
@@ -420,33 +440,39 @@ def split_cells(mesh: Mesh, cells=None, *, values=None, quads: str = "diagonal")
     return SimplexSplit(mesh.coordinates, simplices, owner, tuple(pieces.centres), point_values)
 
 
-def _cone(mesh: Mesh, b: int, local: np.ndarray, conn: np.ndarray, ids: np.ndarray, centred: np.ndarray,
+def _cone(mesh: Mesh, b: int, local: np.ndarray, conn: np.ndarray, ids: np.ndarray, plan: _ConedCells,
           pieces: _Pieces) -> list:
     """Cone coned cells of block ``b`` (rows ``local``): hexahedra and wedges from an added cell
-    centre, pyramids from the apex. Returns their centred quad faces for :func:`_split_centred_faces`."""
+    centre, pyramids from the apex, to two triangles per quad face (cut along the diagonal
+    ``plan`` names). Returns the quad faces that get a centre for :func:`_split_centred_faces`."""
     kind = mesh.blocks[b].cell_type
     numbers = mesh.face_numbers()[b][local]
-    if kind == "pyramid":  # coned only when its base is centred
-        return [(conn[:, [0, 3, 2, 1]], conn[:, 4], ids, numbers[:, 0])]
-    centre = pieces.add_centres(conn)
+    along13 = plan.along13[local]
+    if kind == "pyramid":  # coned only when its base is cut otherwise than by the table
+        apex = conn[:, 4]
+        centre = None
+    else:
+        centre = pieces.add_centres(conn)
     pending = []
     q = 0
     for j, face in enumerate(FACES[kind]):
         F = conn[:, list(face)]
         if len(face) == 3:
-            pieces.add(np.column_stack([F, centre]), ids)
+            if centre is not None:  # (a pyramid's triangles hold its apex)
+                pieces.add(np.column_stack([F, centre]), ids)
             continue
-        on = centred[:, q]
+        top = apex if centre is None else centre
+        on = plan.centred[local, q]
+        cut = along13[:, q]
         q += 1
-        if on.all():  # usually, on jittered or curvilinear cells: no masked copies
-            pending.append((F, centre, ids, numbers[:, j]))
-            continue
         if on.any():
-            pending.append((F[on], centre[on], ids[on], numbers[on, j]))
-        if not on.all():
+            pending.append((F[on], top[on], ids[on], numbers[on, j]))
             off = ~on
-            for triangle in _face_triangles(kind, j, F[off]):
-                pieces.add(np.column_stack([triangle, centre[off]]), ids[off])
+            F, top, own, cut = F[off], top[off], ids[off], cut[off]
+        else:  # usually: no masked copies
+            own = ids
+        for triangle in diagonal_triangles(F, cut):
+            pieces.add(np.column_stack([triangle, top]), own)
     return pending
 
 
