@@ -51,12 +51,14 @@ affine cell (a parallelepiped) with c and d linear every one of these is exact, 
 split's to round-off (tested). Otherwise the rule integrates the trilinear interpolant where the
 split integrates its piecewise-linear one: both are O(h^2) from the field, and they differ by
 O(h^2) (a share of about (h |grad grad c| / |grad c|)^2 per cell). Measured on the logistic
-profile (Olsson & Kreiss 2005) on jittered hexahedra, 4 and 8 cells across the 5-95 % band:
-int |grad c| per area 1.0022 and 1.0004 against 1.0030 and 1.0008 over the split (analytic 1),
-int c (1 - c) per area and eps 1.062 and 1.016 against 1.063 and 1.016 (analytic 1); on a
-sphere of radius 0.3 at 4 cells across (32^3 cells) the threshold-free width moves from +5.2 %
-to +5.6 % of w, the second moment's from +4.9 % to +5.5 %, within the tolerances the split meets
-(``tests/analysis/test_hex_integrals.py``). The cells a band edge crosses keep the split, so the
+profile (Olsson & Kreiss 2005) on jittered hexahedra (jitter 0.2, the set-ups of
+``tests/analysis/test_hex_integrals.py``, every cell integrated), 4 and 8 cells across the 5-95 %
+band: int |grad c| per area 1.0016 and 1.0004 against 1.0033 and 1.0011 over the 12-tetrahedra
+split (analytic 1), int c (1 - c) per area and eps 1.0610 and 1.0155 against 1.0606 and 1.0155
+(analytic 1); on a sphere of radius 0.3 at 4 cells across (32^3 cells) the threshold-free width
+moves from +4.2 % to +5.0 % of w, the second moment's from +5.1 % to +5.6 %, within the
+tolerances the split meets (on the earlier 24-tetrahedra split: +5.2 % to +5.6 %, +4.8 % to
++5.5 %). The cells a band edge crosses keep the split, so the
 band volume (``interface_width``) keeps its exact band edges. A band cell adds the volume of its
 tetrahedra in the split, not V: a bent face cut along a diagonal moves what lies between it and
 its two triangles from one of its cells to the other (:func:`_split_volumes`, V corrected face by
