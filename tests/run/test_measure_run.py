@@ -308,7 +308,7 @@ def test_wrong_field_stops_a_parallel_run_after_the_first_step(tmp_path):
 
 
 def test_threads_give_the_same_tables_and_are_recorded(tmp_path, monkeypatch):
-    """A run on 3 threads (its small mesh let onto them): profiles.csv and steps.csv equal to one thread's."""
+    """A run on 3 threads (its small mesh let onto them): profiles.csv and steps.csv equal to one thread's; in 3D too."""
     from phasegauge.run import step
 
     monkeypatch.setattr(step, "THREADED_CELLS", 0)
@@ -321,6 +321,23 @@ def test_threads_give_the_same_tables_and_are_recorded(tmp_path, monkeypatch):
         assert json.loads((out / "manifest.json").read_text())["execution"]["threads"] == threads
     for one, three in zip(tables[1], tables[3]):
         pd.testing.assert_frame_equal(one, three, check_exact=True)
+    # in 3D, jittered hexahedra (coned cells, the section operator built beside the interface)
+    mesh = grid_mesh((10, 10, 10), kind="hexahedron", jitter=0.2, seed=2)
+
+    def ball(k):
+        r = np.linalg.norm(mesh.coordinates - [0.4 + 0.05 * k, 0.5, 0.5], axis=1)
+        return 0.5 * (1 + np.tanh((0.25 - r) / 0.04))
+
+    (tmp_path / "ball").mkdir()
+    listing = write_listing(str(tmp_path / "ball"), ((0.1 * k, f"b_{k}.vtu", mesh, {"alpha": ball(k)})
+                                                     for k in range(2)))
+    tables = {}
+    for threads in (1, 4):
+        out = tmp_path / f"b{threads}"
+        measure(listing, "alpha", section_axis="y", section_count=7, threads=threads, out=str(out))
+        tables[threads] = [pd.read_csv(out / name) for name in ("steps.csv", "profiles.csv")]
+    for one, four in zip(tables[1], tables[4]):
+        pd.testing.assert_frame_equal(one, four, check_exact=True)
     res = CliRunner().invoke(main, ["measure", listing, "-f", "alpha", "--threads", "0", "-o", str(tmp_path / "b")])
     assert res.exit_code == 2 and "threads must be a whole number of at least 1" in res.output
 
@@ -339,6 +356,10 @@ def test_sections_built_beside_stop_the_run_as_on_one_thread(tmp_path, monkeypat
             measure(listing, "alpha", section_axis="x", section_positions=[99.0], threads=threads,
                     out=str(tmp_path / f"o{threads}"))
         messages.append(str(caught.value))
+        # with the box wrong too, the box's error comes first on any number of threads (found by review)
+        with pytest.raises(OptionError, match="the box lies outside the mesh"):
+            measure(listing, "alpha", section_axis="x", section_positions=[99.0], box=((5, 6), (0, 1)),
+                    threads=threads, out=str(tmp_path / f"b{threads}"))
     assert messages[0] == messages[1]
 
 

@@ -10,7 +10,7 @@ Two ways to split a cell, and the split of each quadrilateral face they imply:
   the apex (pyramids) to every face triangle, each quad face split in two along the
   diagonal its neighbour uses too (the tables' where both agree and the face is flat, else
   the shorter one: ``_face_diagonals``), or in four about an added face centre where the two
-  diagonals tie.
+  diagonals tie or a triangle of the cut would turn a tetrahedron against its cell.
 
 ``TABLE_DIAGONALS`` names, per quad face of ``cells.FACES``, the diagonal the table cuts it
 along: the two sides of a shared face split it alike when these are the same two points.

@@ -92,8 +92,8 @@ def prepare_mesh(mesh, *, threads: int = 1, split: bool = True) -> None:
 
     The first step of a run needs both (the measures for every integral, the faces for the mesh
     check and the droplets' neighbours); neither reads the other, so on two free cores the pair
-    takes about the longer one's time; the faces' sorts share the threads as well. With ``split`` (an analysis will split cells: the
-    interface, the sections), the plan of which hexahedra, wedges and pyramids are split about
+    takes about the longer one's time; the faces' sorts share the threads as well. With
+    ``split`` (an analysis will split cells: the interface, the sections), the plan of which hexahedra, wedges and pyramids are split about
     added centres follows on all the threads. A regular grid numbers its faces by position (no
     grouping), and one thread makes what it needs when it is first read, as before; so does a
     mesh whose geometry or faces are made already.
@@ -127,11 +127,15 @@ class Beside:
 
     For mesh work the caller's next steps do not read (a new mesh's section operator while the
     interface is measured): nothing it makes is read before :meth:`result`, and it must not warn
-    (its warnings would land among the caller's in no fixed order).
+    (its warnings would land among the caller's in no fixed order). The mesh caches both threads
+    may make (``Mesh.memo`` entries, cached properties) are pure functions of the mesh: made twice
+    at once they cost time, never a different value. numpy's error settings (``np.errstate``)
+    are not carried over to the thread.
     """
 
     def __init__(self, function, *args, **kwargs):
         self._value = self._error = None
+        self._joined = False
 
         def run():
             try:
@@ -144,9 +148,10 @@ class Beside:
 
     def wait(self) -> None:
         """Wait for the thread to end (its error, if any, kept for :meth:`result`)."""
-        if self._thread.is_alive():
+        if not self._joined:
             self._thread.join()
-            _release_thread_arenas()
+            self._joined = True
+            _release_thread_arenas()  # what the thread's arena kept
 
     def result(self):
         """The function's result, or its error raised here."""

@@ -14,7 +14,8 @@ How each cell is split (tables in :mod:`._split_tables`):
 * hexahedra, wedges and pyramids take the few-simplex table (6, 3 and 2 tetrahedra)
   when each of their quad faces is flat and is cut along the same diagonal by the
   cell on its other side (or is on the boundary);
-* a quad face that is bent, or whose two sides' tables cut it along different
+* a quad face that is bent, flat but cut by its table along a diagonal that runs outside
+  it (a reflex corner), or whose two sides' tables cut it along different
   diagonals, is cut along its shorter diagonal (:mod:`._face_diagonals`: both sides
   compare the same two lengths of the same four points, so they agree); where the two
   diagonals tie, or where a triangle of that cut would make a tetrahedron turned against
@@ -154,10 +155,17 @@ class _ConedCells:
     along13: np.ndarray  # (n, number of quad faces) bool
 
 
+def _table13(cell_type: str) -> np.ndarray:
+    """Per quad face (``FACES`` order, quads only): whether the table cuts it along face corners 1-3."""
+    return np.array([TABLE_DIAGONALS[cell_type][j] != (FACES[cell_type][j][0], FACES[cell_type][j][2])
+                     for j in _quad_positions(cell_type)])
+
+
 def _split_plan(mesh: Mesh, *, threads: int = 1) -> list:
     """Per block, None (every cell takes the table) or its :class:`_ConedCells` (cached per mesh).
 
-    A quad face that is bent (seen so from either side), or that the two cells sharing it
+    A quad face that is bent (seen so from either side), flat but cut by the table along a
+    diagonal that runs outside it (a tetrahedron would turn), or that the two cells sharing it
     cut along different diagonals, is cut along its shorter diagonal (a centre where the two
     tie or a triangle would turn a tetrahedron: :mod:`._face_diagonals`); a cell with such a
     face is coned. Blocks of other types: None.
@@ -196,10 +204,14 @@ def _split_plan(mesh: Mesh, *, threads: int = 1) -> list:
             along13, tie = shorter[id(block)]
             along13[lo:lo + _CHUNK], tie[lo:lo + _CHUNK] = shorter_diagonals(kind, corners)
             turns = turned_faces(kind, corners, along13[lo:lo + _CHUNK])
+            # a flat face whose table diagonal runs outside it (a reflex corner, as strong jitter
+            # makes on a boundary) would turn a tetrahedron: it is treated as bent
+            table = np.broadcast_to(_table13(kind), flat.shape)
+            outside = flat & turned_faces(kind, corners, table)
             keys = _diagonal_keys(kind, part, n_points)
             for q, j in enumerate(_quad_positions(kind)):
                 face = ids[lo:lo + _CHUNK, j]
-                centred[face[~flat[:, q]]] = True
+                centred[face[~flat[:, q] | outside[:, q]]] = True
                 turned[face[turns[:, q]]] = True
                 last[face] = keys[:, q]
 
@@ -225,9 +237,7 @@ def _split_plan(mesh: Mesh, *, threads: int = 1) -> list:
                 out.append(None)
                 continue
             along13, tie = shorter[id(block)]
-            table13 = np.array([TABLE_DIAGONALS[kind][j] != (FACES[kind][j][0], FACES[kind][j][2])
-                                for j in _quad_positions(kind)])
-            np.copyto(along13, table13, where=~faces)  # the other faces: the diagonal both tables use
+            np.copyto(along13, _table13(kind), where=~faces)  # the other faces: the diagonal both tables use
             out.append(_ConedCells(coned, faces & (tie | turned[ids[:, _quad_positions(kind)]]), along13))
         return out
 
@@ -385,8 +395,8 @@ def split_cells(mesh: Mesh, cells=None, *, values=None, quads: str = "diagonal")
     SimplexSplit
         Per block, the table's simplices first (simplex by simplex, each over
         the block's cells), then those of coned cells; the simplices about face
-        centres (quad faces whose diagonals tie) last. Face centres are shared by
-        the cells on both sides.
+        centres (quad faces whose diagonals tie, or whose diagonal would turn a
+        tetrahedron) last. Face centres are shared by the cells on both sides.
 
     Raises
     ------
@@ -505,7 +515,9 @@ def _split_centred_faces(pending: list, pieces: _Pieces) -> None:
 
 
 def needs_centres(mesh: Mesh, cells: np.ndarray, *, quads: str = "diagonal") -> bool:
-    """True when :func:`split_cells` of these ``cells`` (as there) adds centres."""
+    """True when :func:`split_cells` of these ``cells`` (as there) does not cut every cell by its
+    table alone: it adds centres (face centres, a coned cell's centre) or cones a pyramid from its
+    apex."""
     plan = _split_plan(mesh) if mesh.dimension == 3 else [None] * len(mesh.blocks)
     for block, rows, coned in zip(mesh.blocks, _block_rows(mesh, cells), plan):
         if rows is not None and rows.size == 0:

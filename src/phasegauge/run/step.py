@@ -206,21 +206,24 @@ def analyse_step(step, options, *, contour_dir: str | None = None, reported_mesh
     m = {"step": step.index, "time": step.time}
     if flat is not None:  # measured per unit depth: say so in the steps table
         m["depth"] = float(flat.depth)
-    # a new mesh's section operator (mesh work, no warnings) is built beside the phase analyses
-    operator = _operator_beside(mesh, ind, options, u_cell, u_point, u_location, threads)
+    # a new mesh's section operator (mesh work, no warnings) is built beside the phase analyses,
+    # the two sharing the threads
+    side = threads // 2
+    operator = _operator_beside(mesh, ind, options, u_cell, u_point, u_location, side)
+    inner = threads - side if operator is not None else threads
     try:
         contour, measured = _phase_analyses(step, mesh, ind, options, result, m, (u_cell, u_point, u_location),
-                                            contour_dir, threads)
+                                            contour_dir, inner)
     finally:
         if operator is not None:
             operator.wait()
-    if operator is not None:
-        operator.result()  # its error where one thread would have met it: at the sections
     if "mixing" in options.analyses:
         m.update(mixing.mixing_metrics(mesh, ind.cell, box=options.box))
         if options.segregation_scale:
             m["segregation_scale"] = mixing.segregation_scale(mesh, ind.cell)
         if options.section_axis is not None:
+            if operator is not None:
+                operator.result()  # its error where one thread meets it: at the sections
             profile = mixing.cross_sections(mesh, ind, axis=options.section_axis,
                                             positions=options.section_positions,
                                             count=options.section_count,
@@ -247,11 +250,12 @@ def analyse_step(step, options, *, contour_dir: str | None = None, reported_mesh
 
 
 def _operator_beside(mesh, ind, options, u_cell, u_point, u_location, threads: int):
-    """The section operator of a new mesh built on a thread of its own, or None (one thread, no
-    sections, or the mesh's operator kept from an earlier step)."""
+    """The section operator of a new mesh built on a thread of its own (its planes cut on up to
+    ``threads`` threads), or None (no thread to spare, no sections, or the mesh's operator kept
+    from an earlier step)."""
     from ..analysis import mixing
 
-    if threads < 2 or "mixing" not in options.analyses or options.section_axis is None or mesh.memo(
+    if threads < 1 or "mixing" not in options.analyses or options.section_axis is None or mesh.memo(
             "cross_sections", dict, keep=False):
         return None
     return Beside(mixing.prepare_cross_sections, mesh, ind, axis=options.section_axis,
