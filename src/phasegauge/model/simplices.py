@@ -206,8 +206,12 @@ def _split_plan(mesh: Mesh, *, threads: int = 1) -> list:
             turns = turned_faces(kind, corners, along13[lo:lo + _CHUNK])
             # a flat face whose table diagonal runs outside it (a reflex corner, as strong jitter
             # makes on a boundary) would turn a tetrahedron: it is treated as bent
-            table = np.broadcast_to(_table13(kind), flat.shape)
-            outside = flat & turned_faces(kind, corners, table)
+            outside = np.zeros_like(flat)
+            some = np.flatnonzero(flat.any(axis=1))  # (on a jittered mesh the boundary cells only)
+            if some.size:
+                picked = [[x[some] for x in corner] for corner in corners]
+                table = np.broadcast_to(_table13(kind), (some.size, flat.shape[1]))
+                outside[some] = flat[some] & turned_faces(kind, picked, table)
             keys = _diagonal_keys(kind, part, n_points)
             for q, j in enumerate(_quad_positions(kind)):
                 face = ids[lo:lo + _CHUNK, j]
