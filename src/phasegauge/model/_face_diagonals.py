@@ -15,6 +15,12 @@ A face bent so far that one of its two triangles, joined to the centre of a cell
 coordinates only): the split would overlap itself there. On 20^3 jittered hexahedra (corners
 moved up to 0.25, 0.3, 0.35 of a cell) the shorter diagonals alone turned tetrahedra in 3, 32 and
 180 cells; with the fallback in 0, 0 and 3 (a centre on every bent face: 0, 0 and 4).
+
+The four-corner faces of polyhedra (:mod:`.polyhedra`) follow the same rule, on face streams
+rather than cell types (:func:`loop_diagonals`, :func:`polyhedra_quad_cuts`): one decision per
+distinct face, taken on its own corners, so the hexahedra written as polyhedra split into the
+same tetrahedra as :func:`.simplices.split_cells` gives them (flat faces aside, which its tables
+cut; a flat face's two cuts hold the same volume).
 """
 
 from __future__ import annotations
