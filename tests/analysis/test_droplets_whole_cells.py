@@ -3,10 +3,11 @@
 Outside checks: the polyhedral files are written by VTK itself (pyvista) [lib], the same cells as
 the hexahedral meshes they are compared with; the analytic volume of a logistic ball,
 4/3 pi (R^3 + pi^2 eps^2 R) [calc, Sommerfeld expansion]; elementary geometry for the parallelepiped
-grid (each of its 24 tetrahedra about the face and cell centres has a sixth of a quarter of the
-cell's volume, so their volume-weighted mean of a cell value is that value, of the corner means
-the cell's corner mean, and their centroid the cell's); where the balls are, when they touch and
-part, by construction.
+grid (each of its 12 tetrahedra about the cell centre, every face cut along its shorter diagonal,
+has a sixth of a half of the cell's volume, and opposite faces are cut alike through the centre,
+so their volume-weighted mean of a cell value is that value, of the corner means the cell's corner
+mean, and their centroid the cell's); where the balls are, when they touch and part, by
+construction.
 """
 
 import numpy as np
@@ -37,7 +38,9 @@ def _read_split(hexa, path, point_data):
     """The hexahedra written by VTK as polyhedra with ``point_data``, read back: (split mesh, fields)."""
     to_polyhedral_grid(hexa, point_data=point_data).save(str(path))
     step = Series(str(path)).read(0)
-    assert step.mesh.cell_parents is not None and step.mesh.n_cells == 24 * hexa.n_cells
+    # 12 tetrahedra a cell (quad faces cut along their shorter diagonal; a face whose triangle
+    # would turn a tetrahedron keeps its centre: 2 more tetrahedra a side)
+    assert step.mesh.cell_parents is not None and 12 * hexa.n_cells <= step.mesh.n_cells < 24 * hexa.n_cells
     return step.mesh, step.fields.point_data
 
 
@@ -80,7 +83,8 @@ COLUMNS = ["volume", "threshold_volume", "centroid_x", "centroid_y", "centroid_z
 def test_parallelepipeds_split_give_the_hexahedra_droplets(meshes, location):
     """Unjittered sheared grid: the whole cells are the hexahedra (measures, centroids, faces, corner
     boxes) and c per whole cell is the hexahedron's (elementary geometry, see the module notes), so
-    two balls give the same labels per cell and the same table, to round-off."""
+    two balls give the same labels per cell and the same table, to round-off (cell data; point data
+    to O(h^2))."""
     hexa, split, path = meshes["sheared"]
     c_hex, c_split = _c_values(hexa, split, path, location, [SHEAR @ [0.3, 0.3, 0.5], SHEAR @ [0.72, 0.7, 0.5]])
     on_hex = label_droplets(hexa, c_hex)
@@ -89,10 +93,20 @@ def test_parallelepipeds_split_give_the_hexahedra_droplets(meshes, location):
     assert on_split.whole_cells and not on_hex.whole_cells
     assert on_split.labels.shape == (hexa.n_cells,)  # one label per whole cell, numbered as the hexahedra
     np.testing.assert_array_equal(on_split.labels, on_hex.labels)
-    np.testing.assert_array_equal(on_split.shared_labels, on_hex.shared_labels)
-    np.testing.assert_allclose(on_split.weights, on_hex.weights, rtol=1e-12, atol=1e-18)
+    if location == "cell":  # one value a whole cell: the same table to round-off
+        np.testing.assert_array_equal(on_split.shared_labels, on_hex.shared_labels)
+        np.testing.assert_allclose(on_split.weights, on_hex.weights, rtol=1e-12, atol=1e-18)
+        tolerance = 1e-12
+    else:
+        # point data: the 12 tetrahedra weigh a cell's corners unevenly (a face's diagonal ends twice),
+        # so c per whole cell is the corner mean only to O(h^2 c'') (the weighted corners' centroid is
+        # the cell's: a linear c is exact); measured: shared labels at 3 of 2744 cells, weights 4.4e-6,
+        # the table 8e-5 (relative)
+        assert np.count_nonzero(on_split.shared_labels != on_hex.shared_labels) <= 0.005 * hexa.n_cells
+        np.testing.assert_allclose(on_split.weights, on_hex.weights, rtol=0, atol=2e-5)
+        tolerance = 3e-4
     for column in COLUMNS:
-        np.testing.assert_allclose(on_split.table[column], on_hex.table[column], rtol=1e-12, atol=1e-13,
+        np.testing.assert_allclose(on_split.table[column], on_hex.table[column], rtol=tolerance, atol=1e-13,
                                    err_msg=column)
     assert on_split.table["under_resolved"].tolist() == on_hex.table["under_resolved"].tolist()
 
@@ -110,10 +124,12 @@ def test_jittered_hexahedra_and_their_polyhedra_agree(meshes):
     for axis in "xyz":
         assert on_split[f"centroid_{axis}"].iloc[0] == pytest.approx(on_hex[f"centroid_{axis}"].iloc[0],
                                                                      abs=0.01 / N)
-    # cell data (one value a polyhedron): the same cells, c dV summed exactly over the pieces
+    # cell data (one value a polyhedron): the same cells, c dV summed over the pieces
     c_cell, c_pieces = _c_values(hexa, split, path, "cell", [centre])
+    # (the hexahedra's trilinear volumes against the split's: bent faces cut along a diagonal move
+    # volume between the cells on their two sides, O(jitter^2) of a cell; 1.5e-3 measured)
     assert label_droplets(split, c_pieces).table["volume"].iloc[0] == pytest.approx(
-        label_droplets(hexa, c_cell).table["volume"].iloc[0], rel=1e-12)
+        label_droplets(hexa, c_cell).table["volume"].iloc[0], rel=3e-3)
 
 
 @pytest.mark.parametrize("name", ["sheared", "jittered"])
@@ -176,13 +192,14 @@ def test_velocity_and_contour_per_whole_cell(meshes):
     assert row["sphericity"] == pytest.approx(on_hex.table["sphericity"].iloc[0], rel=1e-12)
 
 
-def _two_balls(X, gap):
-    """Two balls of radius R along x about (0.7, 0.35, 0.35), ``gap`` apart at their surfaces
-    (negative: overlapping)."""
+def _two_balls(X, gap, r1=1.08 * R):
+    """Two balls of radius R and ``r1`` along x about (0.7, 0.35, 0.35), ``gap`` apart at their
+    surfaces (negative: overlapping). Unequal, so that which one a merged droplet continues is
+    decided by its size (not by round-off: two meshes' volumes of equal balls differ at O(h^2))."""
     x0 = 0.7 - R - gap / 2
-    x1 = 0.7 + R + gap / 2
+    x1 = 0.7 + r1 + gap / 2
     return np.maximum(logistic(np.linalg.norm(X - [x0, 0.35, 0.35], axis=1) - R),
-                      logistic(np.linalg.norm(X - [x1, 0.35, 0.35], axis=1) - R))
+                      logistic(np.linalg.norm(X - [x1, 0.35, 0.35], axis=1) - r1))
 
 
 def test_merge_and_breakup_tracked_on_polyhedra(tmp_path):

@@ -39,11 +39,12 @@ def _sphere_on_polyhedra(tmp_path, n, cells_across):
 
 @pytest.mark.parametrize("cells_across, n", [(4, 32), (8, 48)])
 def test_sphere_on_polyhedra_distances_and_widths(tmp_path, cells_across, n):
-    # jittered hexahedra written as VTK polyhedra: the reader splits each into 24 tetrahedra about
-    # its face and cell centres. The distances are searched against one plane per crossed
+    # jittered hexahedra written as VTK polyhedra: the reader splits each into 12 tetrahedra about
+    # its cell centre (quad faces cut along their shorter diagonal). The distances are searched against one plane per crossed
     # polyhedron (its pieces merged, `_whole_cell_pieces`), within O(h^2 / R) of the contour's own
     # triangles. Measured errors, root mean square and largest, in cells h, at every point the
     # widths searched (corners and the added centres):
+    # (measured on the 24 tetrahedra about face and cell centres the split made before)
     #   32^3, 4 across: 0.0105 / 0.052 (the triangles themselves: 0.020 / 0.171)
     #   40^3, 4 across: 0.0090 / 0.074 (0.021 / 0.236); 48^3, 8 across: 0.012 / 0.085 (0.018 / 0.186)
     # Without a least half-size of the pieces, a sliver (a cell's corner barely cut) measured the
@@ -85,7 +86,9 @@ def test_sphere_on_polyhedra_added_centres_measured_from_their_corners(tmp_path,
     found = np.isfinite(measured.point)
     at_centres = found.copy()
     at_centres[:centres.first] = False
-    assert at_centres.sum() > 0.7 * found.sum()
+    # (the cell centres and the few face centres kept, quad faces cut along a diagonal: half the
+    # points measured, 0.50; 0.7 with a centre on every quad face)
+    assert at_centres.sum() > 0.4 * found.sum()
     r_point = np.linalg.norm(mesh.coordinates - 0.5, axis=1)
     error = (measured.point[at_centres] - (RADIUS - r_point[at_centres])) / h
     assert np.sqrt(np.mean(error ** 2)) < 0.02 and np.abs(error).max() < 0.12

@@ -46,15 +46,18 @@ def test_polyhedra_measure_like_the_hexahedra(files, field):
     poly = measure(str(files / "poly.vtu"), field).steps.iloc[0]
     hexa = measure(str(files / "hex.vtu"), field).steps.iloc[0]
     assert poly["droplet_count"] == hexa["droplet_count"] == 2
-    if field == "cc":  # cell data: every tetrahedron carries its polyhedron's value, volumes exact
-        assert poly["phase_volume"] == pytest.approx(hexa["phase_volume"], rel=1e-12)
+    if field == "cc":  # cell data: every tetrahedron carries its polyhedron's value; the split's cell
+        # volumes against the hexahedra's trilinear ones (bent faces cut along a diagonal move volume
+        # between the cells on their sides: O(jitter^2) a cell; 9.7e-4 measured, 24 tetrahedra: 1e-12)
+        assert poly["phase_volume"] == pytest.approx(hexa["phase_volume"], rel=2e-3)
     else:  # point data: the corner mean of each tetrahedron against that of each hexahedron
         assert poly["phase_volume"] == pytest.approx(hexa["phase_volume"], rel=1e-3)
-        # two piecewise-linear interpolants O(h^2) apart: the polyhedra are split about face centres,
-        # the hexahedra's bent faces cut along their shorter diagonals (measured: areas -4.5 % and
-        # -3.5 % of the spheres' 4 pi sum(r^2) at this coarse resolution, band widths 1.6 % apart)
+        # one piecewise-linear interpolant: the polyhedra's quad faces and the hexahedra's bent faces
+        # are cut along the same shorter diagonals (the same tetrahedra, the same contour; measured:
+        # the area -3.5 % of the spheres' 4 pi sum(r^2) at this coarse resolution, widths 2e-6 apart;
+        # about face centres the polyhedra's area was 1 % below the hexahedra's, the widths 1.6 %)
         area = 4 * np.pi * sum(r * r for r in RADII)
-        assert poly["interface_size"] == pytest.approx(hexa["interface_size"], rel=0.02)
+        assert poly["interface_size"] == pytest.approx(hexa["interface_size"], rel=1e-12)
         for row in (poly, hexa):
             assert row["interface_size"] == pytest.approx(area, rel=0.06)
         assert poly["interface_width"] == pytest.approx(hexa["interface_width"], rel=0.03)

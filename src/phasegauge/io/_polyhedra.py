@@ -8,9 +8,11 @@ write) nor legacy files with polyhedra. So a file that holds polyhedra is read w
 reader (through pyvista, as the structured datasets are) and handed over as a meshio mesh:
 
 * polyhedra become the tetrahedra of :func:`phasegauge.model.polyhedra.split_polyhedra`
-  (about their face and cell centres); hexahedra, wedges and pyramids of the same file are
-  split the same way, so that a face they share with a polyhedron is cut alike from both sides
-  (tetrahedra and every other cell are kept as they are);
+  (about their cell centres; quad faces cut along their shorter diagonal, larger faces about
+  a face centre); hexahedra, wedges and pyramids of the same file are split the same way, so
+  that a face they share with a polyhedron is cut alike from both sides (tetrahedra and every
+  other cell are kept as they are); beside convex point sets, which centre every hull face of
+  four or more corners, the quad faces are centred too (``diagonals=False``);
 * the added centres become points; point fields there are the mean of the corners' values;
 * every tetrahedron keeps the cell values of the cell it comes from, so integrals of cell
   data are unchanged, and is marked as a piece of it (``raw.cell_pieces``, which the mesh
@@ -248,8 +250,10 @@ class PolyhedralRead:
         if self._split is None:
             self.signature  # noqa: B018  (hashed from the arrays, not the streams)
             face_points, face_offsets, face_cell = _join_streams([(make(), rows) for make, rows in self._streams])
+            # convex point sets beside them centre every hull face of 4+ corners: so do the polyhedra's quads
+            convex = any(isinstance(name, type(CONVEX_POINT_SET)) for name, _ in self._blocks)
             self._split = split_polyhedra(self._points, face_points, face_offsets, face_cell, self._rows.size,
-                                          where=self.path, cell_ids=self._rows)
+                                          where=self.path, cell_ids=self._rows, diagonals=not convex)
             self._drop_faces()
         return self._split
 
@@ -301,7 +305,7 @@ class PolyhedralRead:
         others = int(rows.size) - self.n_poly
         if others:
             words += f" and the {others} hexahedra, wedges and pyramids beside them"
-        words += f" read as {len(split.tetra)} tetrahedra about their face and cell centres"
+        words += f" read as {len(split.tetra)} tetrahedra about their cell centres"
         raw.convex_point_sets = words if not note else f"{words}; {note}"
         return raw
 

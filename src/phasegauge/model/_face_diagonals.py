@@ -15,6 +15,12 @@ A face bent so far that one of its two triangles, joined to the centre of a cell
 coordinates only): the split would overlap itself there. On 20^3 jittered hexahedra (corners
 moved up to 0.25, 0.3, 0.35 of a cell) the shorter diagonals alone turned tetrahedra in 3, 32 and
 180 cells; with the fallback in 0, 0 and 3 (a centre on every bent face: 0, 0 and 4).
+
+The four-corner faces of polyhedra (:mod:`.polyhedra`) follow the same rule, on face streams
+rather than cell types (:func:`loop_diagonals`, :func:`polyhedra_quad_cuts`): one decision per
+distinct face, taken on its own corners, so the hexahedra written as polyhedra split into the
+same tetrahedra as :func:`.simplices.split_cells` gives them (flat faces aside, which its tables
+cut; a flat face's two cuts hold the same volume).
 """
 
 from __future__ import annotations
@@ -23,7 +29,7 @@ import numpy as np
 
 from .cells import FACES
 
-__all__ = ["shorter_diagonals", "diagonal_triangles", "turned_faces"]
+__all__ = ["shorter_diagonals", "loop_diagonals", "diagonal_triangles", "turned_faces"]
 
 #: two diagonals this close (relative to the longer) are a tie: the face gets a centre
 _TIE = 1e-9
@@ -41,18 +47,25 @@ def shorter_diagonals(cell_type: str, P: list) -> tuple[np.ndarray, np.ndarray]:
     along13 = np.empty((n, len(quads)), dtype=bool)
     tie = np.empty((n, len(quads)), dtype=bool)
     for q, face in enumerate(quads):
-        lengths = []
-        for a, b in ((face[0], face[2]), (face[1], face[3])):
-            total = None
-            for i in range(3):
-                d = P[a][i] - P[b][i]
-                d *= d
-                total = d if total is None else total + d
-            lengths.append(np.sqrt(total))
-        d02, d13 = lengths
-        along13[:, q] = d13 < d02
-        tie[:, q] = np.abs(d02 - d13) <= _TIE * np.maximum(d02, d13)
+        along13[:, q], tie[:, q] = loop_diagonals([P[j] for j in face])
     return along13, tie
+
+
+def loop_diagonals(P: list) -> tuple[np.ndarray, np.ndarray]:
+    """Of quads given by their four corners in loop order (``P``: per corner the list of its three
+    coordinate arrays (n,)): whether the diagonal from corner 1 to 3 is the shorter, and whether
+    the two diagonals tie (within a relative ``_TIE``). The rule of :func:`shorter_diagonals`,
+    for faces that are not a cell type's (the quad faces of polyhedra, :mod:`.polyhedra`)."""
+    lengths = []
+    for a, b in ((0, 2), (1, 3)):
+        total = None
+        for i in range(3):
+            d = P[a][i] - P[b][i]
+            d *= d
+            total = d if total is None else total + d
+        lengths.append(np.sqrt(total))
+    d02, d13 = lengths
+    return d13 < d02, np.abs(d02 - d13) <= _TIE * np.maximum(d02, d13)
 
 
 def diagonal_triangles(F: np.ndarray, along13: np.ndarray) -> tuple:
@@ -100,3 +113,51 @@ def turned_faces(cell_type: str, P: list, along13: np.ndarray) -> np.ndarray:
     for q, (first, second) in enumerate(quads):
         out[:, q] = (first * total < 0) | (second * total < 0)
     return out
+
+
+def polyhedra_quad_cuts(X: np.ndarray, face_points, face_offsets, faces, group, first, face_cell,
+                        cell_centres: np.ndarray, cell_totals: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    """The cut of the four-corner faces of a polyhedra split (:mod:`.polyhedra`): per face, from
+    which of its corners its diagonal runs (0: corners 0-2, 1: corners 1-3), and per distinct face
+    whether it keeps a centre instead.
+
+    Each distinct face (``group`` numbers the faces ``faces`` by their corner sets, ``first`` is a
+    face of each group) decides once, on its own four corners' coordinates: the shorter diagonal
+    (:func:`loop_diagonals`), a tie keeping the centre. Every face of the group then takes the same
+    two corners, wherever they sit in its own loop. A face whose two triangles, joined to its cell's
+    centre (``cell_centres``, (n_cells, 3)), give a tetrahedron of the sign opposite to the cell's
+    ``cell_totals`` (:func:`cell_turn_totals`) keeps its centre, for both of its cells.
+    """
+    start = np.asarray(face_offsets)[first]
+    corners = [face_points[start + j] for j in range(4)]
+    along13, centred = loop_diagonals([[X[c, i] for i in range(3)] for c in corners])
+    ends = np.where(along13, corners[1], corners[0])  # one end of each distinct face's diagonal
+    other = np.where(along13, corners[3], corners[2])
+    start = np.asarray(face_offsets)[faces]
+    own = face_points[start]
+    shift = ((own != ends[group]) & (own != other[group])).astype(np.int64)  # corner 0 not on it: 1-3
+    cell = face_cell[faces]
+    total = cell_totals[cell]
+    R = []
+    for j in range(4):
+        point = face_points[start + (shift + j) % 4]
+        R.append([X[point, i] - cell_centres[cell, i] for i in range(3)])
+    turned = (_det(R[0], R[1], R[2]) * total < 0) | (_det(R[0], R[2], R[3]) * total < 0)
+    centred |= np.bincount(group[turned], minlength=first.size) > 0
+    return shift, centred
+
+
+def cell_turn_totals(X: np.ndarray, face_points, face_offsets, sizes, nxt, edge_cell, cell_centres: np.ndarray,
+                     n_cells: int) -> np.ndarray:
+    """Six times each cell's volume from its centre, every face cut as a fan from its corner 0 (the
+    orientation :func:`polyhedra_quad_cuts` compares a face's triangles with), chunk by chunk."""
+    fan = np.repeat(face_points[np.asarray(face_offsets)[:-1]], sizes)
+    total = np.zeros(n_cells)
+    chunk = 1 << 16
+    for lo in range(0, face_points.size, chunk):
+        hi = lo + chunk
+        cell = edge_cell[lo:hi]
+        m = [cell_centres[cell, i] for i in range(3)]
+        R = [[X[p, i] - m[i] for i in range(3)] for p in (fan[lo:hi], face_points[lo:hi], face_points[nxt[lo:hi]])]
+        total += np.bincount(cell, weights=_det(*R), minlength=n_cells)
+    return total

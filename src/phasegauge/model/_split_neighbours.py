@@ -112,7 +112,8 @@ def _matched_faces(rows_sorted: np.ndarray, faces: np.ndarray, face_cell: np.nda
 
 
 def split_neighbours(face_points, face_offsets, sizes, nxt, face_cell, twin, n_points: int,
-                     centred_groups, tet_of_position, n_tetra: int) -> np.ndarray | None:
+                     centred_groups, tet_of_position, n_tetra: int, *, centred=None,
+                     diagonal=None) -> np.ndarray | None:
     """Face neighbours of every tetrahedron of the split (before any reordering), or None.
 
     Parameters
@@ -127,7 +128,14 @@ def split_neighbours(face_points, face_offsets, sizes, nxt, face_cell, twin, n_p
         rows' grouping (:func:`._grouping.group_columns`).
     tet_of_position : ndarray (q,)
         The tetrahedron standing on each stream position's edge (a triangular face's three
-        positions: its one tetrahedron).
+        positions: its one tetrahedron; a quad cut along a diagonal: the tetrahedron of the
+        triangle holding the edge).
+    centred : ndarray of shape (n_faces,), bool, optional
+        The faces cut about a centre (default: every face of 4 or more corners).
+    diagonal : list of 4 ndarrays, optional
+        The stream positions of the corners ``q0..q3`` of the quad faces cut along ``q0 - q2``
+        into the triangles ``(q0, q1, q2)`` and ``(q0, q2, q3)``, whose tetrahedra are neighbours
+        across the diagonal (these faces are in ``centred_groups`` too: matched across the cells).
 
     Returns
     -------
@@ -138,7 +146,9 @@ def split_neighbours(face_points, face_offsets, sizes, nxt, face_cell, twin, n_p
     triangles = np.flatnonzero(sizes == 3)
     prev = np.arange(-1, nxt.size - 1, dtype=nxt.dtype)  # the position before, around its face
     prev[face_offsets[:-1]] = face_offsets[1:] - 1
-    if triangles.size == 0:
+    if centred is None:
+        centred = sizes >= 4
+    if triangles.size == 0 and (diagonal is None or diagonal[0].size == 0):
         # every face centred: the tetrahedra are numbered as the stream positions they stand on
         for lo in range(0, n_tetra, CHUNK):  # a chunk of rows at a time (written while in cache)
             part = out[lo:lo + CHUNK]
@@ -147,7 +157,7 @@ def split_neighbours(face_points, face_offsets, sizes, nxt, face_cell, twin, n_p
             part[:, 2] = prev[lo:lo + CHUNK]
             part[:, 3] = -1
     else:
-        pos = np.flatnonzero(np.repeat(sizes >= 4, sizes))
+        pos = np.flatnonzero(np.repeat(centred, sizes))
         tets = tet_of_position[pos]
         out[tets, 0] = tet_of_position[twin[pos]]
         out[tets, 1] = tet_of_position[nxt[pos]]
@@ -158,6 +168,12 @@ def split_neighbours(face_points, face_offsets, sizes, nxt, face_cell, twin, n_p
         for j in range(3):  # a triangle's three edges: their twins in the cell
             out[tri, j] = tet_of_position[twin[start + j]]
         del start, tri
+        if diagonal is not None and diagonal[0].size:
+            first, second = tet_of_position[diagonal[0]], tet_of_position[diagonal[2]]
+            for tets, (p, q), other in ((first, diagonal[:2], second), (second, diagonal[2:], first)):
+                out[tets, 0] = tet_of_position[twin[p]]  # its two face edges' twins in the cell
+                out[tets, 1] = tet_of_position[twin[q]]
+                out[tets, 2] = other  # across the diagonal
         out[:, 3] = -1
     del prev
     # across the faces between cells

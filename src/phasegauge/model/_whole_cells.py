@@ -1,7 +1,7 @@
 """The whole cells of a split mesh: measures, centroids, face neighbours and corner boxes per whole cell.
 
-A reader that splits cells into pieces (polyhedra into about 24 tetrahedra each about their face
-and cell centres, :attr:`Mesh.cell_parents`: the whole cell of each piece) hands the analyses a
+A reader that splits cells into pieces (polyhedra into about 12 tetrahedra each about their cell
+centres, :attr:`Mesh.cell_parents`: the whole cell of each piece) hands the analyses a
 mesh of pieces. Where a metric is defined per cell of the solver (a droplet is a set of the
 solver's cells, as a hexahedral mesh's droplet is a set of hexahedra), it runs on the whole cells.
 :class:`WholeCells` is that view, built once per mesh (:func:`whole_cells`, through ``mesh.memo``):

@@ -1,23 +1,37 @@
-"""Polyhedral cells (VTK type 42) as tetrahedra about their face and cell centres.
+"""Polyhedral cells (VTK type 42) as tetrahedra about their cell centres.
 
 A polyhedron is given by its faces, each a loop of corner points. It is split into tetrahedra
 that conform with its neighbours:
 
-* every face of four or more corners gets a face centre, the mean of its corners, and is cut
+* every face of four corners is cut along its shorter diagonal into two triangles, the rule of
+  the coned cells of :func:`phasegauge.model.simplices.split_cells` (:mod:`._face_diagonals`):
+  each distinct face (faces are matched by their sets of corners) decides once, on its own
+  four corners' coordinates, so both cells on its sides cut it alike and renumbering points or
+  cells changes nothing. Where the two diagonals tie (equal within 1e-9, relative), or where a
+  triangle joined to the centre of a cell on either side would make a tetrahedron turned against
+  that cell's volume, the face gets a face centre instead;
+* every face of five or more corners gets a face centre, the mean of its corners, and is cut
   into one triangle per edge about that centre; the centre is shared by the two cells on the
-  face's sides (faces are matched by their sets of corners), so a shared face is cut alike from
-  both sides whatever order either cell lists its corners in;
+  face's sides, so a shared face is cut alike from both sides whatever order either cell lists
+  its corners in;
 * triangular faces stay whole (the same triangle seen from both sides);
 * every face triangle is joined to the cell centre, the mean of the cell's distinct corners,
-  so a hexahedron becomes 24 tetrahedra, a wedge 18 and a pyramid 8.
+  so a hexahedron-shaped polyhedron becomes 12 tetrahedra (24 with a centre on every face, as
+  a cube's square faces keep), a wedge 8 and a pyramid 6.
+
+The tetrahedra's face neighbours (:mod:`._split_neighbours`) follow the cut: the two triangles of
+a face cut along a diagonal are neighbours across the diagonal's facet in the cell, and each
+meets the neighbour cell's tetrahedron on the same triangle. ``diagonals=False`` gives every quad
+face a centre (as the convex point sets split beside polyhedra do).
 
 Centres are vertex means, not area- or volume-weighted centroids: the same choice as the
 coned cells of :func:`phasegauge.model.simplices.split_cells` (their centre is the trilinear
 value at the cell middle), and a point value at a centre is the mean of its corners' values,
 so a linear field is reproduced exactly. The tetrahedra fill the polyhedron exactly when its
 faces are flat (planar faces, whatever their number of corners), and fill the polyhedron
-bounded by the face triangles about the face centres when they are not; the sum of their
-signed volumes is then the volume the divergence theorem gives for those triangles.
+bounded by the face triangles when they are not; the sum of their signed volumes is then the
+volume the divergence theorem gives for those triangles (the same tetrahedra as
+:func:`~phasegauge.model.simplices.split_cells` gives the same cells as hexahedra).
 
 Every face list is checked before it is split: each edge of a cell must be used by exactly two
 of its faces, in opposite directions (a closed surface, consistently oriented). Faces may all
@@ -40,6 +54,7 @@ from typing import NamedTuple
 import numpy as np
 
 from ..errors import UnsupportedMeshError
+from ._face_diagonals import cell_turn_totals, polyhedra_quad_cuts
 from ._grouping import _bits, group_columns, index_dtype
 from ._split_neighbours import edge_twins, ordered_rows, sorted_with_places, split_neighbours
 from .cells import FACES
@@ -108,20 +123,25 @@ class PolyhedraSplit:
         ``values`` has shape (n_points,) or (n_points, ...); the result (n_centres,) or
         (n_centres, ...), in float64.
         """
-        v = np.asarray(values, dtype=np.float64)
-        if self.n_centres == 0:
-            return np.zeros((0,) + v.shape[1:])
-        offsets = self.centre_offsets
-        out = np.empty((self.n_centres,) + v.shape[1:])
-        chunk = 1 << 14  # centres at a time: their corners' values stay in cache (the same sums)
-        for lo in range(0, self.n_centres, chunk):
-            hi = min(lo + chunk, self.n_centres)
-            first = offsets[lo]
-            corners = v[self.centre_points[first:offsets[hi]]]
-            sums = np.add.reduceat(corners, offsets[lo:hi] - first, axis=0)
-            counts = np.diff(offsets[lo:hi + 1])
-            np.divide(sums, counts.reshape((-1,) + (1,) * (v.ndim - 1)), out=out[lo:hi])
-        return out
+        return _means(values, self.centre_points, self.centre_offsets)
+
+
+def _means(values, points: np.ndarray, offsets: np.ndarray) -> np.ndarray:
+    """Per centre (``offsets``, (n + 1,)) the mean of the ``values`` of its corners ``points``, in float64."""
+    v = np.asarray(values, dtype=np.float64)
+    n = offsets.size - 1
+    if n <= 0:
+        return np.zeros((0,) + v.shape[1:])
+    out = np.empty((n,) + v.shape[1:])
+    chunk = 1 << 14  # centres at a time: their corners' values stay in cache (the same sums)
+    for lo in range(0, n, chunk):
+        hi = min(lo + chunk, n)
+        first = offsets[lo]
+        corners = v[points[first:offsets[hi]]]
+        sums = np.add.reduceat(corners, offsets[lo:hi] - first, axis=0)
+        counts = np.diff(offsets[lo:hi + 1])
+        np.divide(sums, counts.reshape((-1,) + (1,) * (v.ndim - 1)), out=out[lo:hi])
+    return out
 
 
 class SplitCentres(NamedTuple):
@@ -244,8 +264,9 @@ def _check_closed(face_points, nxt, edge_cell, where: str, ids) -> None:
 
 
 def split_polyhedra(points: np.ndarray, face_points, face_offsets, face_cell, n_cells: int, *,
-                    where: str = "", cell_ids=None) -> PolyhedraSplit:
-    """Split polyhedral cells into tetrahedra about their face and cell centres.
+                    where: str = "", cell_ids=None, diagonals: bool = True) -> PolyhedraSplit:
+    """Split polyhedral cells into tetrahedra about their cell centres (and the centres of faces of
+    five or more corners, or of quads whose diagonals tie: see the module notes).
 
     Parameters
     ----------
@@ -264,6 +285,9 @@ def split_polyhedra(points: np.ndarray, face_points, face_offsets, face_cell, n_
         The file, for the error message.
     cell_ids : ndarray of shape (n_cells,), optional
         The cells' numbers in the file, for the error message (default 0 to ``n_cells - 1``).
+    diagonals : bool
+        Cut faces of four corners along their shorter diagonal (default); False gives every one a
+        centre (for cells split beside others that centre all of their quad faces).
 
     Returns
     -------
@@ -298,10 +322,31 @@ def split_polyhedra(points: np.ndarray, face_points, face_offsets, face_cell, n_
     if twin is None and not (packed and _closed_by_keys(face_points, nxt, edge_cell, bits)):
         _check_closed(face_points, nxt, edge_cell, where, ids)  # the grouping names what is wrong
 
-    # face centres: one per distinct face of four or more corners
+    # cell centres first: the mean of each cell's distinct corners (the quad faces' turn check reads them)
+    if packed:  # the distinct (cell, corner) keys in increasing order, as the grouping orders them
+        key = _pack(edge_cell, face_points, bits)
+        key.sort()
+        key = key[np.concatenate([[True], key[1:] != key[:-1]])]
+        cell_corners = key & np.int64((1 << bits) - 1)
+        key >>= np.int64(bits)
+        cell_counts = np.bincount(key, minlength=n_cells)
+        del key
+    else:
+        order, starts = group_columns([edge_cell, face_points])
+        distinct = order[starts]
+        del order, starts
+        cell_corners = face_points[distinct]
+        cell_counts = np.bincount(edge_cell[distinct], minlength=n_cells)
+        del distinct
+    cell_corners = cell_corners.astype(index_dtype(n_points), copy=False)
+    cell_xyz = _means(X, cell_corners, np.concatenate([[0], np.cumsum(cell_counts)]).astype(np.int64))
+
+    # face centres: one per distinct face of five or more corners, and per distinct quad face whose
+    # diagonals tie or whose triangles would turn a tetrahedron (the others cut along their shorter diagonal)
     centre_parts, centre_counts, face_centre = [], [], np.full(sizes.size, -1, dtype=np.int64)
     n_face_centres = 0
     centred_groups = []  # per face size: what the tetrahedra's neighbours across the faces need
+    diagonal_faces, diagonal_shift = np.zeros(0, dtype=np.int64), np.zeros(0, dtype=np.int64)
     for k in np.unique(sizes[sizes >= 4]):
         faces = np.flatnonzero(sizes == k)
         if faces.size * k == face_points.size:  # every face of this size: the stream itself, k a row
@@ -319,26 +364,22 @@ def split_polyhedra(points: np.ndarray, face_points, face_offsets, face_cell, n_
             twin = None  # a face of 128 corners or more: the mesh groups the tetrahedra's faces
         group = np.empty(faces.size, dtype=np.int64)
         group[order] = np.repeat(np.arange(starts.size), np.diff(starts, append=order.size))
-        face_centre[faces] = n_points + n_face_centres + group
-        centre_parts.append(rows[order[starts]].ravel())
-        centre_counts.append(np.full(starts.size, k, dtype=np.int64))
-        n_face_centres += starts.size
-    # cell centres: the mean of each cell's distinct corners
-    if packed:  # the distinct (cell, corner) keys in increasing order, as the grouping orders them
-        key = _pack(edge_cell, face_points, bits)
-        key.sort()
-        key = key[np.concatenate([[True], key[1:] != key[:-1]])]
-        centre_parts.append(key & np.int64((1 << bits) - 1))
-        key >>= np.int64(bits)
-        centre_counts.append(np.bincount(key, minlength=n_cells))
-        del key
-    else:
-        order, starts = group_columns([edge_cell, face_points])
-        distinct = order[starts]
-        del order, starts
-        centre_parts.append(face_points[distinct])
-        centre_counts.append(np.bincount(edge_cell[distinct], minlength=n_cells))
-        del distinct
+        keep = np.ones(starts.size, dtype=bool)  # the distinct faces that get a centre
+        if k == 4 and diagonals:
+            totals = cell_turn_totals(X, face_points, face_offsets, sizes, nxt, edge_cell, cell_xyz, n_cells)
+            shift, keep = polyhedra_quad_cuts(X, face_points, face_offsets, faces, group, faces[order[starts]],
+                                              face_cell, cell_xyz, totals)
+            cut = ~keep[group]
+            diagonal_faces, diagonal_shift = faces[cut], shift[cut]
+            del totals, shift, cut
+        number = np.cumsum(keep) - 1
+        with_centre = keep[group]
+        face_centre[faces[with_centre]] = n_points + n_face_centres + number[group[with_centre]]
+        centre_parts.append(rows[order[starts[keep]]].ravel())
+        centre_counts.append(np.full(int(np.count_nonzero(keep)), k, dtype=np.int64))
+        n_face_centres += int(np.count_nonzero(keep))
+    centre_parts.append(cell_corners)
+    centre_counts.append(cell_counts)
     centre_points = np.concatenate(centre_parts).astype(index_dtype(n_points), copy=False)  # kept with the split
     del centre_parts
     centre_offsets = np.concatenate([[0], np.cumsum(np.concatenate(centre_counts))]).astype(np.int64)
@@ -348,8 +389,10 @@ def split_polyhedra(points: np.ndarray, face_points, face_offsets, face_cell, n_
     # normal gives (b, a, c, centre) a positive volume
     triangles = np.flatnonzero(sizes == 3)
     centred = sizes >= 4
+    centred[diagonal_faces] = False
     corner = np.flatnonzero(np.repeat(centred, sizes))  # stream positions of the centred faces' corners
-    tetra = np.empty((triangles.size + corner.size, 4), dtype=np.int64)
+    n_flat = triangles.size + 2 * diagonal_faces.size  # tetrahedra on whole face triangles
+    tetra = np.empty((n_flat + corner.size, 4), dtype=np.int64)
     source = np.empty(tetra.shape[0], dtype=index_dtype(n_cells))  # int32 where it fits: 4 bytes a tetrahedron
     if triangles.size:
         p = face_offsets[triangles]
@@ -357,21 +400,30 @@ def split_polyhedra(points: np.ndarray, face_points, face_offsets, face_cell, n_
         part[:, 0], part[:, 1], part[:, 2] = face_points[p + 1], face_points[p], face_points[p + 2]
         source[:triangles.size] = face_cell[triangles]
         part[:, 3] = cell_centre[source[:triangles.size]]
+    diagonal = _diagonal_positions(face_offsets, diagonal_faces, diagonal_shift)
+    if diagonal_faces.size:  # two triangles a face: (q0, q1, q2) and (q0, q2, q3), q0 on the diagonal
+        q = [face_points[p] for p in diagonal]
+        cells = face_cell[diagonal_faces]
+        for half, (u, v, w) in enumerate(((1, 0, 2), (2, 0, 3))):
+            part = tetra[triangles.size + half:n_flat:2]
+            part[:, 0], part[:, 1], part[:, 2], part[:, 3] = q[u], q[v], q[w], cell_centre[cells]
+            source[triangles.size + half:n_flat:2] = cells
+        del q, cells
     if corner.size == face_points.size:  # every face centred: a tetrahedron for each stream position
         _fill_centred(tetra, source, face_points, nxt, np.repeat(face_centre, sizes), edge_cell,
                       n_points + n_face_centres)
     elif corner.size:
         face_of = np.repeat(np.arange(sizes.size, dtype=small)[centred], sizes[centred])
-        part = tetra[triangles.size:]
+        part = tetra[n_flat:]
         part[:, 0], part[:, 1], part[:, 2] = face_points[nxt[corner]], face_points[corner], face_centre[face_of]
-        source[triangles.size:] = face_cell[face_of]
+        source[n_flat:] = face_cell[face_of]
         del face_of
-        part[:, 3] = cell_centre[source[triangles.size:]]
+        part[:, 3] = cell_centre[source[n_flat:]]
     del edge_cell
     neighbours = None
     if twin is not None:
         neighbours = _tetra_neighbours(face_points, face_offsets, sizes, nxt, face_cell, twin, n_points,
-                                       centred_groups, triangles, corner, tetra.shape[0])
+                                       centred_groups, triangles, diagonal, corner, centred, tetra.shape[0])
     del corner, nxt, twin, centred_groups
     if source.size and np.any(source[1:] < source[:-1]):  # faces of several sizes: cell by cell again
         keep = np.argsort(source, kind="stable")
@@ -384,8 +436,9 @@ def split_polyhedra(points: np.ndarray, face_points, face_offsets, face_cell, n_
     if neighbours is not None:
         ordered_rows(neighbours)
 
-    split = PolyhedraSplit(tetra, source, centre_points, centre_offsets, n_points, n_face_centres)
-    Y = np.concatenate([X, split.centre_values(X)])
+    face_xyz = _means(X, centre_points[:centre_offsets[n_face_centres]], centre_offsets[:n_face_centres + 1])
+    Y = np.concatenate([X, face_xyz, cell_xyz])
+    del face_xyz, cell_xyz
     volume = _signed_volumes(Y, tetra)
     total = np.bincount(source, weights=volume, minlength=n_cells)
     turn = total < 0
@@ -417,8 +470,15 @@ def _fill_centred(tetra, source, face_points, nxt, centre_of_position, edge_cell
         np.add(cells, first_cell_centre, out=part[:, 3], dtype=np.int64)
 
 
+def _diagonal_positions(face_offsets, faces, shift) -> list:
+    """The stream positions of the corners ``q0..q3`` of quad faces cut along ``q0 - q2`` (``q0`` the
+    face's corner ``shift``)."""
+    start = face_offsets[faces]
+    return [start + (shift + j) % 4 for j in range(4)]
+
+
 def _tetra_neighbours(face_points, face_offsets, sizes, nxt, face_cell, twin, n_points, centred_groups, triangles,
-                      corner, n_tetra):
+                      diagonal, corner, centred, n_tetra):
     """The tetrahedra's face neighbours from the faces (:func:`._split_neighbours.split_neighbours`)."""
     dtype = index_dtype(n_tetra + 1)
     if corner.size == face_points.size:  # every face centred: the tetrahedra in stream order
@@ -426,11 +486,14 @@ def _tetra_neighbours(face_points, face_offsets, sizes, nxt, face_cell, twin, n_
         return split_neighbours(face_points, face_offsets, sizes, nxt, face_cell, twin, n_points, centred_groups,
                                 tet_of_position, n_tetra)
     tet_of_position = np.empty(face_points.size, dtype=dtype)
-    tet_of_position[corner] = np.arange(triangles.size, triangles.size + corner.size, dtype=dtype)
+    n_flat = triangles.size + 2 * diagonal[0].size
+    tet_of_position[corner] = np.arange(n_flat, n_flat + corner.size, dtype=dtype)
     for j in range(3):
         tet_of_position[face_offsets[triangles] + j] = np.arange(triangles.size, dtype=dtype)
+    for j in range(4):  # the edges q0 -> q1, q1 -> q2 on the first triangle, q2 -> q3, q3 -> q0 on the second
+        tet_of_position[diagonal[j]] = np.arange(triangles.size + j // 2, n_flat, 2, dtype=dtype)
     return split_neighbours(face_points, face_offsets, sizes, nxt, face_cell, twin, n_points, centred_groups,
-                            tet_of_position, n_tetra)
+                            tet_of_position, n_tetra, centred=centred, diagonal=diagonal)
 
 
 def _signed_volumes(Y: np.ndarray, tetra: np.ndarray) -> np.ndarray:
