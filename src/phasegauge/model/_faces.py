@@ -71,6 +71,16 @@ def row_owners(mesh: Mesh, rows: np.ndarray, row_starts: np.ndarray) -> np.ndarr
     return mesh.block_offsets[block] + (rows - row_starts[block]) % n[block]
 
 
+def _shift_later_columns(columns: np.ndarray, sign: int) -> None:
+    """Add ``sign`` times the first column to the others, in place, chunk by chunk."""
+    for lo in range(0, columns.shape[1], CHUNK):
+        part = columns[:, lo:lo + CHUNK]
+        if sign < 0:
+            part[1:] -= part[0]
+        else:
+            part[1:] += part[0]
+
+
 def face_topology(mesh: Mesh, *, threads: int = 1) -> dict:
     """Face grouping, done once: what :attr:`face_pairs`, :attr:`boundary_faces` and the
     face numbers of :meth:`face_numbers` are read from (the grouping itself is not kept).
@@ -84,7 +94,13 @@ def face_topology(mesh: Mesh, *, threads: int = 1) -> dict:
     if given is not None:
         return split_face_topology(mesh, given)
     columns, row_starts = face_rows(mesh)
+    # grouped with the later corners as offsets from the first: within rows of equal first corner
+    # they order as the corners themselves, so the order and the groups are the same, and where
+    # the numbering keeps a face's corners near each other (as grids and renumbered meshes do)
+    # the offsets take fewer bits: fewer sorting passes (4M hexahedra: two instead of four)
+    _shift_later_columns(columns, -1)
     order, starts = group_columns(list(columns), threads=threads)
+    _shift_later_columns(columns, 1)
     m = order.size
     sizes = np.diff(starts, append=m).astype(index_dtype(m + 1))
     # faces owned by one cell only
