@@ -44,9 +44,9 @@ def test_sphere_on_polyhedra_distances_and_widths(tmp_path, cells_across, n):
     # polyhedron (its pieces merged, `_whole_cell_pieces`), within O(h^2 / R) of the contour's own
     # triangles. Measured errors, root mean square and largest, in cells h, at every point the
     # widths searched (corners and the added centres):
-    # (measured on the 24 tetrahedra about face and cell centres the split made before)
-    #   32^3, 4 across: 0.0105 / 0.052 (the triangles themselves: 0.020 / 0.171)
-    #   40^3, 4 across: 0.0090 / 0.074 (0.021 / 0.236); 48^3, 8 across: 0.012 / 0.085 (0.018 / 0.186)
+    #   32^3, 4 across: 0.0168 / 0.117; 40^3, 4 across: 0.0149 / 0.096; 48^3, 8 across: 0.0143 / 0.118
+    # (on the 24 tetrahedra about face and cell centres the split made before: 0.0105 / 0.052,
+    # 0.0090 / 0.074, 0.012 / 0.085; the triangles themselves 0.020 / 0.171, 0.021 / 0.236, 0.018 / 0.186)
     # Without a least half-size of the pieces, a sliver (a cell's corner barely cut) measured the
     # cell centres beside it to its centroid: largest errors 0.19-0.39 h.
     _, mesh, profile, h, eps = _sphere_on_polyhedra(tmp_path, n, cells_across)
