@@ -4,10 +4,10 @@ Outside checks: the polyhedral files are written by VTK itself (pyvista) [lib], 
 the hexahedral meshes they are compared with; the analytic volume of a logistic ball,
 4/3 pi (R^3 + pi^2 eps^2 R) [calc, Sommerfeld expansion]; elementary geometry for the parallelepiped
 grid (each of its 12 tetrahedra about the cell centre, every face cut along its shorter diagonal,
-has a sixth of a half of the cell's volume, and opposite faces are cut alike through the centre,
-so their volume-weighted mean of a cell value is that value, of the corner means the cell's corner
-mean, and their centroid the cell's); where the balls are, when they touch and part, by
-construction.
+has a twelfth of the cell's volume, so their volume-weighted mean of a cell value is that value
+and their centroid the cell's; the mean of their corner means weights the corners unevenly, within
+O(h^2) of the cell's corner mean, exact for a linear c); where the balls are, when they touch and
+part, by construction.
 """
 
 import numpy as np

@@ -126,6 +126,31 @@ def test_faces_grouped_on_threads_are_those_of_one_thread(kind, monkeypatch):
     assert one["count"] == three["count"] and one["crowded"] == three["crowded"]
 
 
+def test_faces_grouped_by_offsets_from_the_first_corner_are_grouped_as_before(monkeypatch):
+    # the face rows' later corners as offsets from the first keep the lexicographic order, so the
+    # grouping is the plain one, on a renumbered mixed mesh (triangles padded with -1 beside quads)
+    from phasegauge.model import _faces
+    from phasegauge.model.mesh import Mesh
+
+    mesh = grid_mesh((7, 6, 5), kind="mixed", jitter=0.3, seed=4)
+    rng = np.random.default_rng(4)
+    new = rng.permutation(mesh.n_points)
+    blocks = [(b.cell_type, new[b.connectivity][rng.permutation(len(b))]) for b in mesh.blocks]
+    points = np.empty_like(mesh.points)
+    points[new] = mesh.points
+    renumbered = Mesh(points, blocks)
+    shifted = _faces.face_topology(renumbered)
+    monkeypatch.setattr(_faces, "_shift_later_columns", lambda columns, sign: None)
+    plain = _faces.face_topology(renumbered)
+    np.testing.assert_array_equal(shifted["pairs"], plain["pairs"])
+    for a, b in zip(shifted["boundary"], plain["boundary"]):
+        np.testing.assert_array_equal(a, b)
+    for a, b in zip(shifted["numbers"], plain["numbers"]):
+        assert (a is None) == (b is None)
+        if a is not None:
+            np.testing.assert_array_equal(a, b)
+
+
 @pytest.mark.parametrize("kind", ["hexahedron", "mixed"])
 def test_split_plan_is_the_same_on_any_number_of_threads(kind, monkeypatch):
     # chunks of a few cells, so that the threads share faces across chunks

@@ -144,18 +144,19 @@ def test_renumbering_leaves_contour_and_widths_unchanged(tmp_path):
 
 def test_turned_triangles_keep_the_face_centre_as_split_cells_does():
     # corners moved up to 0.35 of a cell: some shorter diagonals would turn a tetrahedron against its
-    # cell; those faces keep a centre, on both sides, the same faces as simplices.split_cells centres
-    # (measured: 165 face centres, 12.082 tetrahedra a cell, none of negative volume; the volumes
-    # per cell the same to round-off)
+    # cell; those faces keep a centre, on both sides, as simplices.split_cells does (measured: 165
+    # face centres, 12.082 tetrahedra a cell, none of negative volume; the volumes per cell the
+    # same to round-off)
     m = grid_mesh((20, 20, 20), kind="hexahedron", jitter=0.35, seed=1)
     conn = m.blocks[0].connectivity
     split = split_polyhedra(m.points, *cell_face_stream("hexahedron", conn), len(conn))
     assert split.n_face_centres > 0 and split.inverted_tetra == 0
     hexa = split_cells(m)
-    # (split_cells cuts a flat face by its cell's table, the polyhedra by the same rule as a bent one:
-    # here one flat boundary face whose shorter diagonal turns a tetrahedron keeps a centre, 2 more)
-    assert abs(len(split.tetra) - len(hexa.simplices)) <= 4
+    # (split_cells cuts a flat face by its cell's table unless that would turn a tetrahedron, the
+    # polyhedra by the same rule as a bent one: here both centre the same faces)
+    assert len(split.tetra) == len(hexa.simplices)
     volume = _signed(split.points, split.tetra)
+    assert volume.min() > 0
     per_cell = np.bincount(split.source, weights=volume, minlength=len(conn))
     theirs = np.abs(np.bincount(hexa.owner, weights=_signed(hexa.coordinates, hexa.simplices), minlength=len(conn)))
     np.testing.assert_allclose(per_cell, theirs, rtol=1e-12, atol=0)
@@ -165,3 +166,26 @@ def test_turned_triangles_keep_the_face_centre_as_split_cells_does():
     on_side = np.any((np.abs(outer) < 1e-12).all(axis=1) | (np.abs(outer - 1) < 1e-12).all(axis=1), axis=1)
     assert on_side.all() and np.count_nonzero(counts == 1) >= 2 * 2 * 3 * 20 * 20
     assert np.count_nonzero(split.neighbours >= 0) == 2 * np.count_nonzero(counts == 2)
+
+
+def test_a_face_with_three_corners_in_a_line_keeps_its_centre():
+    # a tetrahedron whose edge a-b holds a hanging node m (two faces of four corners, a, m, b in a
+    # line): the shorter diagonal of face (a, m, b, c) would give the flat triangle (a, m, b) and a
+    # tetrahedron of no volume, the same from both faces (found by review: a facet of four
+    # tetrahedra, a neighbour listed twice). Such a face keeps its centre: every tetrahedron has
+    # volume, they add up to the tetrahedron's (a . (b x c) / 6, analytic) and conform
+    a, b, c, d, m = [0, 0, 0], [1, 0, 0], [0.5, 2, 0], [0.5, 0.8, 1.5], [0.5, 0, 0]
+    X = np.array([a, b, c, d, m], dtype=float)
+    faces = [(0, 4, 1, 2), (1, 4, 0, 3), (0, 2, 3), (1, 3, 2)]
+    points = np.array([p for f in faces for p in f])
+    offsets = np.concatenate([[0], np.cumsum([len(f) for f in faces])])
+    split = split_polyhedra(X, points, offsets, np.zeros(len(faces), dtype=np.int64), 1)
+    volume = _signed(split.points, split.tetra)
+    assert split.n_face_centres == 2 and volume.min() > 1e-3
+    expected = abs(np.dot(np.subtract(b, a), np.cross(np.subtract(c, a), np.subtract(d, a)))) / 6
+    assert volume.sum() == pytest.approx(expected, rel=1e-12)
+    _, counts = np.unique(_facets(split.tetra), axis=0, return_counts=True)
+    assert counts.max() == 2
+    for row in split.neighbours:
+        listed = row[row >= 0]
+        assert listed.size == np.unique(listed).size

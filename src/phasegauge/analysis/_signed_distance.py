@@ -394,8 +394,8 @@ def _centre_split_distance(points: np.ndarray, values: np.ndarray, wanted: np.nd
     corner are too few (the search's element at about two in three centres). ``reach`` is at
     least the largest distance from a centre to one of its corners: the corners search up to
     ``bound + reach``, so that any element within ``bound`` of a centre is found among its
-    corners' candidates whenever a search without bound would find it. About four in five of the
-    points the widths search on polyhedra are centres.
+    corners' candidates whenever a search without bound would find it. About half of the points
+    the widths search on polyhedra are centres (four in five while every quad face had a centre).
     """
     first, corners, offsets = centres
     close_set, far_set = _search_sets(geometry, plane_axes)

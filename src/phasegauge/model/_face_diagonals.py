@@ -14,7 +14,9 @@ A face bent so far that one of its two triangles, joined to the centre of a cell
 (:func:`turned_faces`; either side's finding marks the face for both, so they agree; it too reads
 coordinates only): the split would overlap itself there. On 20^3 jittered hexahedra (corners
 moved up to 0.25, 0.3, 0.35 of a cell) the shorter diagonals alone turned tetrahedra in 3, 32 and
-180 cells; with the fallback in 0, 0 and 3 (a centre on every bent face: 0, 0 and 4).
+180 cells; with the fallback in 0, 0 and 3 (a centre on every bent face: 0, 0 and 4), and none
+at all once a flat face whose table diagonal runs outside it is cut as a bent one (found by review;
+seeds 0, 1 and 11 at 0.35, ``tests/model/test_simplices.py``).
 
 The four-corner faces of polyhedra (:mod:`.polyhedra`) follow the same rule, on face streams
 rather than cell types (:func:`loop_diagonals`, :func:`polyhedra_quad_cuts`): one decision per
@@ -126,7 +128,8 @@ def polyhedra_quad_cuts(X: np.ndarray, face_points, face_offsets, faces, group, 
     (:func:`loop_diagonals`), a tie keeping the centre. Every face of the group then takes the same
     two corners, wherever they sit in its own loop. A face whose two triangles, joined to its cell's
     centre (``cell_centres``, (n_cells, 3)), give a tetrahedron of the sign opposite to the cell's
-    ``cell_totals`` (:func:`cell_turn_totals`) keeps its centre, for both of its cells.
+    ``cell_totals`` (:func:`cell_turn_totals`), or of a volume under 1e-12 of the cell's (three
+    corners in a line), keeps its centre, for both of its cells.
     """
     start = np.asarray(face_offsets)[first]
     corners = [face_points[start + j] for j in range(4)]
@@ -142,7 +145,10 @@ def polyhedra_quad_cuts(X: np.ndarray, face_points, face_offsets, faces, group, 
     for j in range(4):
         point = face_points[start + (shift + j) % 4]
         R.append([X[point, i] - cell_centres[cell, i] for i in range(3)])
-    turned = (_det(R[0], R[1], R[2]) * total < 0) | (_det(R[0], R[2], R[3]) * total < 0)
+    # a triangle whose tetrahedron is turned, or flat (three corners in a line, as a hanging
+    # node on an edge makes: found by review), keeps the face's centre
+    least = 1e-12 * total * total
+    turned = (_det(R[0], R[1], R[2]) * total <= least) | (_det(R[0], R[2], R[3]) * total <= least)
     centred |= np.bincount(group[turned], minlength=first.size) > 0
     return shift, centred
 
