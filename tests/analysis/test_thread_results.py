@@ -107,6 +107,18 @@ def test_sorts_shared_among_threads_match_numpy(threads, monkeypatch):
     np.testing.assert_array_equal(ordered, np.sort(key))
 
 
+def _same_faces(one, other):
+    """Two face groupings (``face_topology``) alike: pairs, boundary, face numbers and counts."""
+    np.testing.assert_array_equal(one["pairs"], other["pairs"])
+    for a, b in zip(one["boundary"], other["boundary"]):
+        np.testing.assert_array_equal(a, b)
+    for a, b in zip(one["numbers"], other["numbers"]):
+        assert (a is None) == (b is None)
+        if a is not None:
+            np.testing.assert_array_equal(a, b)
+    assert one["count"] == other["count"] and one["crowded"] == other["crowded"]
+
+
 @pytest.mark.parametrize("kind", ["hexahedron", "mixed", "tetra"])
 def test_faces_grouped_on_threads_are_those_of_one_thread(kind, monkeypatch):
     # every sort of the grouping shared among threads: the same pairs, boundary and face numbers
@@ -115,15 +127,7 @@ def test_faces_grouped_on_threads_are_those_of_one_thread(kind, monkeypatch):
 
     monkeypatch.setattr(_grouping, "THREADED_SORT", 16)
     mesh = grid_mesh((9, 7, 6), kind=kind, jitter=0.3, seed=5)
-    one, three = face_topology(mesh), face_topology(mesh, threads=3)
-    np.testing.assert_array_equal(one["pairs"], three["pairs"])
-    for a, b in zip(one["boundary"], three["boundary"]):
-        np.testing.assert_array_equal(a, b)
-    for a, b in zip(one["numbers"], three["numbers"]):
-        assert (a is None) == (b is None)
-        if a is not None:
-            np.testing.assert_array_equal(a, b)
-    assert one["count"] == three["count"] and one["crowded"] == three["crowded"]
+    _same_faces(face_topology(mesh), face_topology(mesh, threads=3))
 
 
 def test_faces_grouped_by_offsets_from_the_first_corner_are_grouped_as_before(monkeypatch):
@@ -141,14 +145,7 @@ def test_faces_grouped_by_offsets_from_the_first_corner_are_grouped_as_before(mo
     renumbered = Mesh(points, blocks)
     shifted = _faces.face_topology(renumbered)
     monkeypatch.setattr(_faces, "_shift_later_columns", lambda columns, sign: None)
-    plain = _faces.face_topology(renumbered)
-    np.testing.assert_array_equal(shifted["pairs"], plain["pairs"])
-    for a, b in zip(shifted["boundary"], plain["boundary"]):
-        np.testing.assert_array_equal(a, b)
-    for a, b in zip(shifted["numbers"], plain["numbers"]):
-        assert (a is None) == (b is None)
-        if a is not None:
-            np.testing.assert_array_equal(a, b)
+    _same_faces(shifted, _faces.face_topology(renumbered))
 
 
 @pytest.mark.parametrize("kind", ["hexahedron", "mixed"])
