@@ -89,6 +89,15 @@ def test_prepared_mesh_has_the_same_geometry_and_faces():
     np.testing.assert_array_equal(one.face_pairs, two.face_pairs)
     for a, b in zip(one.boundary_faces, two.boundary_faces):
         np.testing.assert_array_equal(a, b)
+    # the split plan, its per-cell part made beside the faces, against the plan made afterwards
+    from phasegauge.model.simplices import _split_plan
+
+    assert "simplex_split_plan" in two.__dict__.get("_memo", {})
+    for a, b in zip(_split_plan(one), _split_plan(two)):
+        assert (a is None) == (b is None)
+        if a is not None:
+            for name in ("coned", "centred", "along13"):
+                np.testing.assert_array_equal(getattr(a, name), getattr(b, name))
 
 
 @pytest.mark.parametrize("threads", [2, 3, 4, 8])

@@ -93,8 +93,10 @@ def prepare_mesh(mesh, *, threads: int = 1, split: bool = True) -> None:
     The first step of a run needs both (the measures for every integral, the faces for the mesh
     check and the droplets' neighbours); neither reads the other, so on two free cores the pair
     takes about the longer one's time; the faces' sorts share the threads as well. With
-    ``split`` (an analysis will split cells: the interface, the sections), the plan of which hexahedra, wedges and pyramids are split about
-    added centres follows on all the threads. A regular grid numbers its faces by position (no
+    ``split`` (an analysis will split cells: the interface, the sections), the split plan's
+    per-cell part is made after the geometry, beside the faces, and the plan of which
+    hexahedra, wedges and pyramids are split about added centres follows on all the threads.
+    A regular grid numbers its faces by position (no
     grouping), and one thread makes what it needs when it is first read, as before; so does a
     mesh whose geometry or faces are made already.
     """
@@ -103,14 +105,19 @@ def prepare_mesh(mesh, *, threads: int = 1, split: bool = True) -> None:
     made = mesh.__dict__
     if "_geometry" in made or "_face_topology" in made:
         return
-    mesh.coordinates  # noqa: B018  (read by both: made here first)
-    for _ in ordered_map(lambda make: make(), (lambda: _make_faces(mesh, threads), lambda: mesh._geometry),
-                         threads=2):
-        pass
-    if split and mesh.dimension == 3:
-        from .simplices import _split_plan
+    from .simplices import _plan_cells, _split_plan
 
-        _split_plan(mesh, threads=threads)
+    mesh.coordinates  # noqa: B018  (read by all: made here first)
+    split = split and mesh.dimension == 3
+
+    def geometry_and_cells():  # the split plan's per-cell part needs no faces: made beside them
+        mesh._geometry  # noqa: B018
+        return _plan_cells(mesh) if split else None
+
+    _, cells = ordered_map(lambda make: make(), (lambda: _make_faces(mesh, threads), geometry_and_cells),
+                           threads=2)
+    if split:
+        _split_plan(mesh, threads=threads, cells=cells)
 
 
 def _make_faces(mesh, threads: int) -> None:

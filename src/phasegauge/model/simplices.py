@@ -51,6 +51,7 @@ from ._grouping import group_columns, group_numbers, sort_small_rows
 from ._split_tables import CONED_TYPES, TABLE, TABLE_DIAGONALS
 from .cells import FACES
 from ._threads import ordered_map
+from ._simplex_geometry import clip_simplices, simplex_measures  # noqa: F401  (the split's public names)
 from .mesh import Mesh
 
 __all__ = ["SimplexSplit", "split_cells", "needs_centres", "grid_corner_steps", "simplex_measures", "clip_simplices"]
@@ -161,14 +162,59 @@ def _table13(cell_type: str) -> np.ndarray:
                      for j in _quad_positions(cell_type)])
 
 
-def _split_plan(mesh: Mesh, *, threads: int = 1) -> list:
+def _plan_cells(mesh: Mesh, *, threads: int = 1) -> dict | None:
+    """What the split plan reads of each cell alone, before any face is numbered (None: no cell
+    to plan, or a grid in table order).
+
+    Per block of hexahedra, wedges or pyramids (by ``id(block)``), four (n, quad faces) bool
+    arrays: a face cut as a bent one (bent, or flat with a table diagonal running outside it),
+    its shorter diagonal (face corners 1-3?), a tie of the two, and a triangle of the shorter cut
+    turning a tetrahedron. Needs no face numbers, so a new mesh makes it beside its faces
+    (:func:`._threads.prepare_mesh`). ``threads``: chunks of cells side by side (each writes its
+    own rows).
+    """
+    kinds = [block.cell_type for block in mesh.blocks]
+    if mesh.dimension != 3 or not any(kind in CONED_TYPES for kind in kinds):
+        return None
+    if grid_corner_steps(mesh) is not None:  # a grid in table order: every face flat, cut alike
+        return None
+    columns = [np.ascontiguousarray(mesh.coordinates[:, i]) for i in range(3)]
+    cells = {id(block): tuple(np.empty((len(block), len(_quad_positions(kind))), dtype=bool) for _ in range(4))
+             for kind, block in zip(kinds, mesh.blocks) if kind in CONED_TYPES}
+    chunks = [(kind, block, lo) for kind, block in zip(kinds, mesh.blocks)
+              if kind in CONED_TYPES for lo in range(0, len(block), _CHUNK)]  # temporaries stay in cache
+
+    def plan_chunk(chunk):
+        kind, block, lo = chunk
+        bent, along13, tie, turns = (a[lo:lo + _CHUNK] for a in cells[id(block)])
+        part = block.connectivity[lo:lo + _CHUNK]
+        corners = [[x[part[:, j]] for x in columns] for j in range(part.shape[1])]
+        flat = _flat_faces(kind, corners)
+        along13[:], tie[:] = shorter_diagonals(kind, corners)
+        turns[:] = turned_faces(kind, corners, along13)
+        # a flat face whose table diagonal runs outside it (a reflex corner, as strong jitter
+        # makes on a boundary) would turn a tetrahedron: it is treated as bent
+        np.logical_not(flat, out=bent)
+        some = np.flatnonzero(flat.any(axis=1))  # (on a jittered mesh the boundary cells only)
+        if some.size:
+            picked = [[x[some] for x in corner] for corner in corners]
+            table = np.broadcast_to(_table13(kind), (some.size, flat.shape[1]))
+            bent[some] |= flat[some] & turned_faces(kind, picked, table)
+
+    for _ in ordered_map(plan_chunk, chunks, threads=threads):
+        pass
+    return cells
+
+
+def _split_plan(mesh: Mesh, *, threads: int = 1, cells: dict | None = None) -> list:
     """Per block, None (every cell takes the table) or its :class:`_ConedCells` (cached per mesh).
 
     A quad face that is bent (seen so from either side), flat but cut by the table along a
     diagonal that runs outside it (a tetrahedron would turn), or that the two cells sharing it
     cut along different diagonals, is cut along its shorter diagonal (a centre where the two
     tie or a triangle would turn a tetrahedron: :mod:`._face_diagonals`); a cell with such a
-    face is coned. Blocks of other types: None.
+    face is coned. Blocks of other types: None. ``cells``: :func:`_plan_cells` of the mesh when
+    made already (it is then consumed).
     ``threads``: threads that go through the cells when the plan is made (chunks of cells side
     by side; the plan is the same on any number: each chunk only marks faces and writes its own
     diagonals and its own cells' shorter diagonals, and whichever side's diagonal a shared face
@@ -177,9 +223,8 @@ def _split_plan(mesh: Mesh, *, threads: int = 1) -> list:
 
     def compute():
         kinds = [block.cell_type for block in mesh.blocks]
-        if mesh.dimension != 3 or not any(kind in CONED_TYPES for kind in kinds):
-            return [None] * len(kinds)
-        if grid_corner_steps(mesh) is not None:  # a grid in table order: every face flat, cut alike
+        planned = _plan_cells(mesh, threads=threads) if cells is None else cells
+        if planned is None:
             return [None] * len(kinds)
         numbers = mesh.face_numbers()
         n_faces = 1 + max(int(ids.max()) for ids, kind in zip(numbers, kinds)
@@ -188,34 +233,16 @@ def _split_plan(mesh: Mesh, *, threads: int = 1) -> list:
         turned = np.zeros(n_faces, dtype=bool)  # faces whose shorter diagonal's triangles turn a tetrahedron
         last = np.full(n_faces, -1, dtype=np.int64)
         n_points = np.int64(max(mesh.n_points, 1))
-        columns = [np.ascontiguousarray(mesh.coordinates[:, i]) for i in range(3)]
         chunks = [(kind, block, ids, lo) for kind, block, ids in zip(kinds, mesh.blocks, numbers)
                   if kind in CONED_TYPES for lo in range(0, len(block), _CHUNK)]  # temporaries stay in cache
-        # per block, cell and quad face: its shorter diagonal (face corners 1-3?) and a tie
-        shorter = {id(block): tuple(np.empty((len(block), len(_quad_positions(kind))), dtype=bool)
-                                    for _ in range(2))
-                   for kind, block in zip(kinds, mesh.blocks) if kind in CONED_TYPES}
 
         def bent_faces_and_diagonals(chunk):
             kind, block, ids, lo = chunk
-            part = block.connectivity[lo:lo + _CHUNK]
-            corners = [[x[part[:, j]] for x in columns] for j in range(part.shape[1])]
-            flat = _flat_faces(kind, corners)
-            along13, tie = shorter[id(block)]
-            along13[lo:lo + _CHUNK], tie[lo:lo + _CHUNK] = shorter_diagonals(kind, corners)
-            turns = turned_faces(kind, corners, along13[lo:lo + _CHUNK])
-            # a flat face whose table diagonal runs outside it (a reflex corner, as strong jitter
-            # makes on a boundary) would turn a tetrahedron: it is treated as bent
-            outside = np.zeros_like(flat)
-            some = np.flatnonzero(flat.any(axis=1))  # (on a jittered mesh the boundary cells only)
-            if some.size:
-                picked = [[x[some] for x in corner] for corner in corners]
-                table = np.broadcast_to(_table13(kind), (some.size, flat.shape[1]))
-                outside[some] = flat[some] & turned_faces(kind, picked, table)
-            keys = _diagonal_keys(kind, part, n_points)
+            bent, _, _, turns = (a[lo:lo + _CHUNK] for a in planned[id(block)])
+            keys = _diagonal_keys(kind, block.connectivity[lo:lo + _CHUNK], n_points)
             for q, j in enumerate(_quad_positions(kind)):
                 face = ids[lo:lo + _CHUNK, j]
-                centred[face[~flat[:, q] | outside[:, q]]] = True
+                centred[face[bent[:, q]]] = True
                 turned[face[turns[:, q]]] = True
                 last[face] = keys[:, q]
 
@@ -240,7 +267,7 @@ def _split_plan(mesh: Mesh, *, threads: int = 1) -> list:
             if not coned.any():
                 out.append(None)
                 continue
-            along13, tie = shorter[id(block)]
+            _, along13, tie, _ = planned[id(block)]
             np.copyto(along13, _table13(kind), where=~faces)  # the other faces: the diagonal both tables use
             out.append(_ConedCells(coned, faces & (tie | turned[ids[:, _quad_positions(kind)]]), along13))
         return out
@@ -531,70 +558,3 @@ def needs_centres(mesh: Mesh, cells: np.ndarray, *, quads: str = "diagonal") -> 
         if coned is not None and (coned.coned.any() if rows is None else coned.coned[rows].any()):
             return True
     return False
-
-
-# --------------------------------------------------------------------------- simplex geometry
-
-def simplex_measures(X: np.ndarray) -> np.ndarray:
-    """Unsigned areas (triangles) or volumes (tetrahedra) of X, shape (n, d + 1, d)."""
-    E = X[:, 1:, :] - X[:, :1, :]
-    if X.shape[2] == 2:
-        return 0.5 * np.abs(E[:, 0, 0] * E[:, 1, 1] - E[:, 0, 1] * E[:, 1, 0])
-    return np.abs(np.einsum("ni,ni->n", E[:, 0], np.cross(E[:, 1], E[:, 2]))) / 6.0
-
-
-def _edge_point(X: np.ndarray, s: np.ndarray, i: int, j: int) -> np.ndarray:
-    """Where the edge i-j (s_i <= 0 < s_j) meets s = 0."""
-    t = s[:, i] / (s[:, i] - s[:, j])
-    return X[:, i] + t[:, None] * (X[:, j] - X[:, i])
-
-
-def _prism(a0, a1, a2, b0, b1, b2) -> list:
-    """Three tetrahedra filling the prism with end triangles a and b (a_k joined to b_k)."""
-    return [np.stack(t, axis=1) for t in ((a0, a1, a2, b2), (a0, a1, b1, b2), (a0, b0, b1, b2))]
-
-
-def clip_simplices(X: np.ndarray, parent: np.ndarray, s: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
-    """The parts of simplices where the linear function s <= 0.
-
-    Parameters
-    ----------
-    X : ndarray of shape (n, d + 1, d)
-        Corner coordinates of triangles (d = 2) or tetrahedra (d = 3).
-    parent : ndarray of shape (n,)
-        A label carried over to the pieces.
-    s : ndarray of shape (n, d + 1)
-        Signed distance (or any affine function) at the corners.
-
-    Returns
-    -------
-    X, parent
-        Simplices covering exactly the kept part.
-    """
-    order = np.argsort(s, axis=1, kind="stable")
-    X = np.take_along_axis(X, order[:, :, None], axis=1)
-    s = np.take_along_axis(s, order, axis=1)
-    inside = np.count_nonzero(s <= 0, axis=1)
-    k = X.shape[1]
-    pieces, labels = [X[inside == k]], [parent[inside == k]]
-    one = inside == 1
-    Xa, sa = X[one], s[one]
-    pieces.append(np.stack([Xa[:, 0]] + [_edge_point(Xa, sa, 0, j) for j in range(1, k)], axis=1))
-    labels.append(parent[one])
-    two = inside == 2
-    Xb, sb = X[two], s[two]
-    if k == 3:
-        p12, p02 = _edge_point(Xb, sb, 1, 2), _edge_point(Xb, sb, 0, 2)
-        pieces += [np.stack([Xb[:, 0], Xb[:, 1], p12], axis=1), np.stack([Xb[:, 0], p12, p02], axis=1)]
-        labels += [parent[two]] * 2
-    else:
-        p02, p03 = _edge_point(Xb, sb, 0, 2), _edge_point(Xb, sb, 0, 3)
-        p12, p13 = _edge_point(Xb, sb, 1, 2), _edge_point(Xb, sb, 1, 3)
-        pieces += _prism(Xb[:, 0], p02, p03, Xb[:, 1], p12, p13)
-        labels += [parent[two]] * 3
-        three = inside == 3
-        Xc, sc = X[three], s[three]
-        tops = [_edge_point(Xc, sc, j, 3) for j in (0, 1, 2)]
-        pieces += _prism(Xc[:, 0], Xc[:, 1], Xc[:, 2], *tops)
-        labels += [parent[three]] * 3
-    return np.concatenate(pieces), np.concatenate(labels)
