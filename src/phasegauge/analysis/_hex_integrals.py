@@ -73,7 +73,7 @@ import numpy as np
 from ..model.cells import FACES
 from ..model.mesh import Mesh
 from ..model._grouping import index_dtype
-from ..model._geometry import _cross, _dot
+from ..model._geometry import _cross, _dot, _sub, _triple
 from ..model.corners import corner_sum
 from ..model.simplices import _split_plan
 from ._sums import dot
@@ -493,10 +493,7 @@ def _split_volumes(X: list, codes: np.ndarray, trilinear: np.ndarray) -> np.ndar
         if centred.all():
             continue
         p0, p1, p2, p3 = (X[q] for q in face)
-        e1 = [p1[i] - p0[i] for i in range(3)]
-        e2 = [p2[i] - p0[i] for i in range(3)]
-        e3 = [p3[i] - p0[i] for i in range(3)]
-        six = _dot(e1, _cross(e2, e3))
+        six = _triple(_sub(p1, p0), _sub(p2, p0), _sub(p3, p0))
         along13 = (codes >> (6 + j) & 1).astype(bool)
         six[centred] = 0.0
         total += np.where(along13, six, -six) / 12.0

@@ -29,6 +29,7 @@ from __future__ import annotations
 
 import numpy as np
 
+from ._geometry import _corner_mean, _triple
 from .cells import FACES
 
 __all__ = ["shorter_diagonals", "loop_diagonals", "diagonal_triangles", "turned_faces"]
@@ -78,12 +79,6 @@ def diagonal_triangles(F: np.ndarray, along13: np.ndarray) -> tuple:
     return first, second
 
 
-def _det(a, b, c) -> np.ndarray:
-    """a . (b x c), points as lists of 3 arrays: six times the signed volume of (a, b, c, origin)."""
-    return (a[0] * (b[1] * c[2] - b[2] * c[1]) + a[1] * (b[2] * c[0] - b[0] * c[2])
-            + a[2] * (b[0] * c[1] - b[1] * c[0]))
-
-
 def turned_faces(cell_type: str, P: list, along13: np.ndarray) -> np.ndarray:
     """Per cell and quad face (n, number of quad faces): whether a triangle of the face, cut as
     ``along13`` says (:func:`shorter_diagonals`), joined to the cell's centre (the corners' mean; a
@@ -91,14 +86,14 @@ def turned_faces(cell_type: str, P: list, along13: np.ndarray) -> np.ndarray:
     its face triangles' tetrahedra, ``FACES`` being all outward). ``P`` as for
     :func:`shorter_diagonals`."""
     k = len(P)
-    m = P[4] if cell_type == "pyramid" else [sum((P[j][i] for j in range(1, k)), P[0][i]) / k for i in range(3)]
+    m = P[4] if cell_type == "pyramid" else _corner_mean(P)
     R = [[P[j][i] - m[i] for i in range(3)] for j in range(k)]  # corners from the centre
     total = 0.0
     quads = []
     for face in FACES[cell_type]:
         if len(face) == 3:
             if cell_type != "pyramid":  # (a pyramid's triangles hold its apex)
-                total = total + _det(*(R[j] for j in face))
+                total = total + _triple(*(R[j] for j in face))
             continue
         cut = along13[:, len(quads)]
         # the face's corners from corner 0 (cut along 0-2) or from corner 1 (along 1-3): the
@@ -108,7 +103,7 @@ def turned_faces(cell_type: str, P: list, along13: np.ndarray) -> np.ndarray:
             g = [R[face[(i + shift) % 4]] for i in range(4)]
         else:
             g = [[np.where(cut, R[face[(i + 1) % 4]][d], R[face[i]][d]) for d in range(3)] for i in range(4)]
-        first, second = _det(g[0], g[1], g[2]), _det(g[0], g[2], g[3])
+        first, second = _triple(g[0], g[1], g[2]), _triple(g[0], g[2], g[3])
         quads.append((first, second))
         total = total + first + second
     out = np.empty(along13.shape, dtype=bool)
@@ -148,7 +143,7 @@ def polyhedra_quad_cuts(X: np.ndarray, face_points, face_offsets, faces, group, 
     # a triangle whose tetrahedron is turned, or flat (three corners in a line, as a hanging
     # node on an edge makes: found by review), keeps the face's centre
     least = 1e-12 * total * total
-    turned = (_det(R[0], R[1], R[2]) * total <= least) | (_det(R[0], R[2], R[3]) * total <= least)
+    turned = (_triple(R[0], R[1], R[2]) * total <= least) | (_triple(R[0], R[2], R[3]) * total <= least)
     centred |= np.bincount(group[turned], minlength=first.size) > 0
     return shift, centred
 
@@ -165,5 +160,5 @@ def cell_turn_totals(X: np.ndarray, face_points, face_offsets, sizes, nxt, edge_
         cell = edge_cell[lo:hi]
         m = [cell_centres[cell, i] for i in range(3)]
         R = [[X[p, i] - m[i] for i in range(3)] for p in (fan[lo:hi], face_points[lo:hi], face_points[nxt[lo:hi]])]
-        total += np.bincount(cell, weights=_det(*R), minlength=n_cells)
+        total += np.bincount(cell, weights=_triple(*R), minlength=n_cells)
     return total

@@ -111,8 +111,9 @@ def measure(path, field: str | None = None, *, options: MeasureOptions | None = 
     workers : int
         Local worker processes (1: in this process).
     threads : int, optional
-        Threads of each process for the mesh work that splits into independent parts (the
-        planes of the section operator). Default: the CPUs this process may use (at most 8, or
+        Threads of each process for the work that splits into independent parts (a new mesh's
+        faces, geometry and split plan, its section operator beside the other analyses, each
+        step's planes and the widths' distance searches). Default: the CPUs this process may use (at most 8, or
         the environment variable ``PHASEGAUGE_THREADS``) shared among the local workers; one on
         a Dask cluster's workers. The tables are the same bit for bit on any number.
     scheduler : str, optional

@@ -209,7 +209,8 @@ def analyse_step(step, options, *, contour_dir: str | None = None, reported_mesh
     # a new mesh's section operator (mesh work, no warnings) is built beside the phase analyses,
     # the two sharing the threads
     side = threads // 2
-    operator = _operator_beside(mesh, ind, options, u_cell, u_point, u_location, side)
+    planes = _section_arguments(options, u_cell, u_point, u_location)
+    operator = _operator_beside(mesh, ind, options, planes, side)
     inner = threads - side if operator is not None else threads
     try:
         contour, measured = _phase_analyses(step, mesh, ind, options, result, m, (u_cell, u_point, u_location),
@@ -224,11 +225,7 @@ def analyse_step(step, options, *, contour_dir: str | None = None, reported_mesh
         if options.section_axis is not None:
             if operator is not None:
                 operator.result()  # its error where one thread meets it: at the sections
-            profile = mixing.cross_sections(mesh, ind, axis=options.section_axis,
-                                            positions=options.section_positions,
-                                            count=options.section_count,
-                                            velocity=u_cell if u_location == "cell" else u_point,
-                                            velocity_location=u_location, threads=threads)
+            profile = mixing.cross_sections(mesh, ind, **planes, threads=threads)
             weighting = "flow" if u_location is not None else "area"
             m["mixing_length"] = mixing.mixing_length(profile, target=options.mixing_target,
                                                       weighting=weighting)
@@ -249,7 +246,14 @@ def analyse_step(step, options, *, contour_dir: str | None = None, reported_mesh
     return result
 
 
-def _operator_beside(mesh, ind, options, u_cell, u_point, u_location, threads: int):
+def _section_arguments(options, u_cell, u_point, u_location) -> dict:
+    """The planes and the velocity of the step's sections: what the section operator and the
+    profile both take (:func:`phasegauge.analysis.mixing.cross_sections`)."""
+    return {"axis": options.section_axis, "positions": options.section_positions, "count": options.section_count,
+            "velocity": u_cell if u_location == "cell" else u_point, "velocity_location": u_location}
+
+
+def _operator_beside(mesh, ind, options, planes: dict, threads: int):
     """The section operator of a new mesh built on a thread of its own (its planes cut on up to
     ``threads`` threads), or None (no thread to spare, no sections, or the mesh's operator kept
     from an earlier step)."""
@@ -258,10 +262,7 @@ def _operator_beside(mesh, ind, options, u_cell, u_point, u_location, threads: i
     if threads < 1 or "mixing" not in options.analyses or options.section_axis is None or mesh.memo(
             "cross_sections", dict, keep=False):
         return None
-    return Beside(mixing.prepare_cross_sections, mesh, ind, axis=options.section_axis,
-                  positions=options.section_positions, count=options.section_count,
-                  velocity=u_cell if u_location == "cell" else u_point, velocity_location=u_location,
-                  threads=threads)
+    return Beside(mixing.prepare_cross_sections, mesh, ind, **planes, threads=threads)
 
 
 def _phase_analyses(step, mesh, ind, options, result, m: dict, velocity: tuple, contour_dir, threads: int):
