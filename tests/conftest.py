@@ -82,3 +82,19 @@ def check_sphere_widths(r, measured, coordinates, c, *, radius, h, cells_across,
     for key in ("interface_width", "width_threshold_free", "width_second_moment", "width_profile_median"):
         assert -0.02 < r[key] / width - 1 < high, key
     assert 0.96 < r["interface_variance"] / (np.pi ** 2 * eps ** 2 / 3) < (1 + high) ** 2
+
+
+@pytest.fixture(scope="module")
+def every_polyhedron_split():
+    """Polyhedra split as polyhedra even where their faces make an ordinary cell.
+
+    The reader takes a file whose polyhedra are all hexahedra, wedges, pyramids or tetrahedra
+    written as faces as those cells (``io/_polyhedra._ordinary_cells``); the tests of the
+    polyhedra's split build such files (hexahedra written as polyhedra) and ask for the split,
+    as a file with one polyhedron of any other shape gets it.
+    """
+    from phasegauge.io import _polyhedra
+
+    with pytest.MonkeyPatch.context() as patch:
+        patch.setattr(_polyhedra, "_ordinary_cells", lambda points, made: None)
+        yield

@@ -21,6 +21,9 @@ from phasegauge.io import Series  # noqa: E402
 from phasegauge.meshgen import grid_mesh, to_polyhedral_grid  # noqa: E402
 from phasegauge.model.mesh import Mesh  # noqa: E402
 
+# hexahedra written as polyhedra, split as polyhedra of other shapes are (conftest)
+pytestmark = pytest.mark.usefixtures("every_polyhedron_split")
+
 N = 14
 R, EPS = 0.25, 0.03
 SHEAR = np.array([[1.0, 0.3, 0.1], [0.0, 1.0, 0.2], [0.0, 0.0, 1.0]])

@@ -12,6 +12,9 @@ import pytest
 from phasegauge.analysis.droplets import looks_periodic
 from phasegauge.meshgen import grid_mesh
 
+# hexahedra written as polyhedra, split as polyhedra of other shapes are (conftest)
+pytestmark = pytest.mark.usefixtures("every_polyhedron_split")
+
 
 def test_periodic_field_is_told_apart_from_bounded_ones():
     mesh = grid_mesh((32, 24))

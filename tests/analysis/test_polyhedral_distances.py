@@ -19,6 +19,9 @@ from phasegauge.meshgen import grid_mesh, to_polyhedral_grid  # noqa: E402
 
 from conftest import check_sphere_widths  # noqa: E402
 
+# hexahedra written as polyhedra, split as polyhedra of other shapes are (conftest)
+pytestmark = pytest.mark.usefixtures("every_polyhedron_split")
+
 RADIUS = 0.3
 
 

@@ -16,6 +16,9 @@ from phasegauge.analysis.tracking import DropletTracker  # noqa: E402
 from phasegauge.io import Series  # noqa: E402
 from phasegauge.meshgen import grid_mesh, to_polyhedral_grid  # noqa: E402
 
+# hexahedra written as polyhedra, split as polyhedra of other shapes are (conftest)
+pytestmark = pytest.mark.usefixtures("every_polyhedron_split")
+
 N = 12
 H = 1.0 / N
 

@@ -17,6 +17,9 @@ from phasegauge.io import Series  # noqa: E402
 from phasegauge.io.describe import describe_series  # noqa: E402
 from phasegauge.meshgen import grid_mesh, to_polyhedral_grid  # noqa: E402
 
+# hexahedra written as polyhedra, split as polyhedra of other shapes are (conftest)
+pytestmark = pytest.mark.usefixtures("every_polyhedron_split")
+
 
 def _affine(mesh, seed=0):
     """The mesh's points mapped by a random affine map (faces stay flat; VTK's volumes are exact)."""

@@ -14,6 +14,9 @@ from phasegauge.model.mesh import Mesh
 from phasegauge.model.polyhedra import cell_face_stream, split_polyhedra
 from phasegauge.model.simplices import split_cells
 
+# hexahedra written as polyhedra, split as polyhedra of other shapes are (conftest)
+pytestmark = pytest.mark.usefixtures("every_polyhedron_split")
+
 
 def _signed(Y, tetra):
     a = Y[tetra[:, 0]]

@@ -16,6 +16,9 @@ from phasegauge.model.mesh import Mesh  # noqa: E402
 from phasegauge.model.outline import MeshOutline  # noqa: E402
 from phasegauge.model._centroids import cell_centroids_of, whole_cell_centroids  # noqa: E402
 
+# hexahedra written as polyhedra, split as polyhedra of other shapes are (conftest)
+pytestmark = pytest.mark.usefixtures("every_polyhedron_split")
+
 SHEAR = np.array([[1.0, 0.3, 0.1], [0.0, 0.9, 0.2], [0.0, 0.0, 1.1]])  # an affine map: parallelepipeds
 
 

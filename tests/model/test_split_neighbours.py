@@ -18,6 +18,9 @@ from phasegauge.model._faces import SPLIT_FACES, face_topology
 from phasegauge.model.mesh import Mesh
 from phasegauge.model.polyhedra import cell_face_stream, split_polyhedra
 
+# hexahedra written as polyhedra, split as polyhedra of other shapes are (conftest)
+pytestmark = pytest.mark.usefixtures("every_polyhedron_split")
+
 
 def _mesh_stream(m, *, rotate=False, inward=False, seed=0):
     """Face stream of every cell of ``m`` (loops started at a random corner, odd cells turned inward)."""

@@ -13,6 +13,9 @@ from phasegauge.model.corners import corner_extremes
 from phasegauge.model.mesh import Mesh
 from phasegauge.model._whole_cells import WholeCells, whole_cells
 
+# hexahedra written as polyhedra, split as polyhedra of other shapes are (conftest)
+pytestmark = pytest.mark.usefixtures("every_polyhedron_split")
+
 
 @pytest.fixture(scope="module")
 def polyhedra(tmp_path_factory):

@@ -7,6 +7,9 @@ cell at a time in Python); it reads neither the face arrays of format 2.3 (``fac
 write) nor legacy files with polyhedra. So a file that holds polyhedra is read with VTK's
 reader (through pyvista, as the structured datasets are) and handed over as a meshio mesh:
 
+* when every polyhedron of the file is a tetrahedron, pyramid, wedge or hexahedron written as
+  faces (:func:`phasegauge.model._polyhedron_shapes.ordinary_shapes`), the file is read as those
+  cells: nothing is split and no point is added (:class:`OrdinaryCells`); otherwise
 * polyhedra become the tetrahedra of :func:`phasegauge.model.polyhedra.split_polyhedra`
   (about their cell centres; quad faces cut along their shorter diagonal, larger faces about
   a face centre); hexahedra, wedges and pyramids of the same file are split the same way, so
@@ -32,6 +35,7 @@ import io
 import mmap
 import re
 import warnings
+from dataclasses import dataclass
 from functools import cached_property, partial
 
 import numpy as np
@@ -132,6 +136,9 @@ def _polyhedron_faces(face_arrays: tuple, cells: np.ndarray):
     face_conn, face_offs, loc_conn, loc_offs = face_arrays
     per_cell = np.diff(loc_offs)[cells]
     face_ids = loc_conn[ranges(loc_offs, cells)]
+    if face_ids.size == face_offs.size - 1 and face_ids.size and face_ids[0] == 0 and np.all(np.diff(face_ids) == 1):
+        # every face of the file, in order (the usual layout): VTK's own arrays are the stream
+        return face_conn, face_offs, np.repeat(np.arange(cells.size, dtype=np.int64), per_cell)
     sizes = face_offs[face_ids + 1] - face_offs[face_ids]
     offsets = np.concatenate([[0], np.cumsum(sizes)]).astype(np.int64)
     return face_conn[ranges(face_offs, face_ids)], offsets, np.repeat(np.arange(cells.size, dtype=np.int64), per_cell)
@@ -161,7 +168,7 @@ def read_polyhedral(path: str):
     for t in np.unique(types):
         rows_t = np.flatnonzero(types == t)
         if t == VTK_POLYHEDRON:
-            streams.append((partial(_polyhedron_faces, face_arrays, rows_t), rows_t))
+            streams.append((partial(_polyhedron_faces, face_arrays, rows_t), rows_t, None))
             continue
         name = vtk_common.vtk_to_meshio_type.get(int(t))
         if name is None:
@@ -173,7 +180,9 @@ def read_polyhedral(path: str):
             linear = LINEAR_CORNERS.get(str(name), (str(name), None))
             if linear[0] in _QUAD_FACED:
                 local = cells if linear[1] is None else cells[:, linear[1]]
-                streams.append((partial(cell_face_stream, linear[0], local), rows))
+                order = vtk_common.vtk_to_meshio_order(int(t))  # a wedge's first triangle, as meshio reads it
+                streams.append((partial(cell_face_stream, linear[0], local), rows,
+                                (name, cells if order is None else cells[:, order])))
                 continue
             blocks.append((name, cells))
             rows_of.append(rows)
@@ -202,7 +211,7 @@ class PolyhedralRead:
     def __init__(self, path, points, blocks, rows_of, streams, made_from, point_data, cell_data, field_data, n_poly):
         self.path, self._points, self._blocks, self._rows_of = path, points, blocks, rows_of
         self._streams, self._made_from = streams, made_from
-        self._rows = np.concatenate([rows for _, rows in streams]).astype(np.int64)  # input rows of the split cells
+        self._rows = np.concatenate([rows for _, rows, _ in streams]).astype(np.int64)  # input rows of the split cells
         self._point_data, self._cell_data = point_data, cell_data
         self.field_data, self.n_poly = field_data, n_poly
         self._split = None
@@ -236,6 +245,8 @@ class PolyhedralRead:
 
         split = self.split
         mesh.memo(self._KEY, lambda: (self.signature, split))
+        if isinstance(split, OrdinaryCells):
+            return
         if (split.n_centres and mesh.point_merge is None
                 and mesh.n_points == split.n_points + split.n_centres):
             mesh.memo(SPLIT_CENTRES, lambda: SplitCentres(split.n_points, split.centre_points, split.centre_offsets))
@@ -245,15 +256,22 @@ class PolyhedralRead:
 
     @property
     def split(self):
+        """The polyhedra's split (:class:`~phasegauge.model.polyhedra.PolyhedraSplit`), or the
+        ordinary cells they are (:class:`OrdinaryCells`) when every one is a tetrahedron, pyramid,
+        wedge or hexahedron written as faces (:mod:`phasegauge.model._polyhedron_shapes`)."""
         from ..model.polyhedra import split_polyhedra
 
         if self._split is None:
             self.signature  # noqa: B018  (hashed from the arrays, not the streams)
-            face_points, face_offsets, face_cell = _join_streams([(make(), rows) for make, rows in self._streams])
             # convex point sets beside them centre every hull face of 4+ corners: so do the polyhedra's quads
             convex = any(isinstance(name, type(CONVEX_POINT_SET)) for name, _ in self._blocks)
-            self._split = split_polyhedra(self._points, face_points, face_offsets, face_cell, self._rows.size,
-                                          where=self.path, cell_ids=self._rows, diagonals=not convex)
+            made = [(make(), rows, block) for make, rows, block in self._streams]
+            self._split = None if convex else _ordinary_cells(self._points, made)
+            if self._split is None:
+                face_points, face_offsets, face_cell = _join_streams([(stream, rows) for stream, rows, _ in made])
+                del made
+                self._split = split_polyhedra(self._points, face_points, face_offsets, face_cell, self._rows.size,
+                                              where=self.path, cell_ids=self._rows, diagonals=not convex)
             self._drop_faces()
         return self._split
 
@@ -270,6 +288,8 @@ class PolyhedralRead:
     @cached_property
     def _raw(self):
         split, path = self.split, self.path
+        if isinstance(split, OrdinaryCells):
+            return self._ordinary_raw(split)
         if split.inverted_tetra:
             warnings.warn(MeshWarning(f"{split.inverted_tetra} tetrahedra of the polyhedra's split have negative "
                                       "volume (cells not star-shaped from their corner mean)", where=path),
@@ -308,6 +328,57 @@ class PolyhedralRead:
         words += f" read as {len(split.tetra)} tetrahedra about their cell centres"
         raw.convex_point_sets = words if not note else f"{words}; {note}"
         return raw
+
+
+    def _ordinary_raw(self, ordinary: "OrdinaryCells"):
+        """The file as read when its polyhedra are ordinary cells: no split, no added points."""
+        blocks = self._blocks + [(name, cells) for name, cells, _ in ordinary.blocks]
+        rows_of = self._rows_of + [rows for _, _, rows in ordinary.blocks]
+        numeric = {name: values for name, values in self._cell_data.items() if np.issubdtype(values.dtype, np.number)}
+        cell_data = {name: [values[r] for r in rows_of] for name, values in numeric.items()}
+        raw = new_mesh(self._points, blocks, point_data=self._point_data, cell_data=cell_data,
+                       field_data=self.field_data)
+        raw.convex_point_sets = ordinary.words
+        return raw
+
+
+@dataclass(frozen=True, eq=False)
+class OrdinaryCells:
+    """The cells of a file whose polyhedra are all ordinary cells written as faces.
+
+    Attributes
+    ----------
+    blocks : list of (str, ndarray, ndarray)
+        ``(cell type, connectivity, input rows)``: the hexahedra, wedges and pyramids of the file as
+        they are, then the polyhedra as the cells they are (:func:`~phasegauge.model._polyhedron_shapes.ordinary_shapes`).
+    words : str
+        How the polyhedra were read (``inspect`` shows it).
+    """
+
+    blocks: list
+    words: str
+
+
+def _ordinary_cells(points, made: list) -> OrdinaryCells | None:
+    """The file's split cells as ordinary cells when every polyhedron is one (``made``: face stream,
+    input rows and, for the file's own hexahedra, wedges and pyramids, their block), else None."""
+    from ..model._polyhedron_shapes import ordinary_shapes
+
+    blocks, counts = [], {}
+    for (face_points, face_offsets, face_cell), rows, block in made:
+        if block is not None:
+            blocks.append((block[0], block[1], rows))
+            continue
+        shapes = ordinary_shapes(points, face_points, face_offsets, face_cell, rows.size)
+        if shapes is None:
+            return None
+        for shape in shapes:
+            blocks.append((shape.cell_type, shape.connectivity, rows[shape.cells]))
+            counts[shape.cell_type] = counts.get(shape.cell_type, 0) + int(shape.cells.size)
+    names = {"tetra": "tetrahedra", "pyramid": "pyramids", "wedge": "wedges", "hexahedron": "hexahedra"}
+    listed = ", ".join(f"{n} {names[t]}" for t, n in counts.items())
+    return OrdinaryCells(blocks, f"{sum(counts.values())} polyhedral cells (VTK 42) read as the ordinary cells "
+                                 f"their faces make: {listed}")
 
 
 def _join_streams(streams: list):

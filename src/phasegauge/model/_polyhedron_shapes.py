@@ -1,0 +1,209 @@
+"""Polyhedra that are ordinary cells: tetrahedra, pyramids, wedges and hexahedra written as faces.
+
+Some solvers and converters write every cell of a mesh as a polyhedron (VTK 42), hexahedra
+included. Such a cell is recognised from its faces alone, with no tolerance:
+
+* its faces are 4 triangles (a tetrahedron), 4 triangles and a quad (a pyramid), 2 triangles and
+  3 quads (a wedge) or 6 quads (a hexahedron);
+* a base face is taken (the first face; a wedge's first triangle, a pyramid's quad), and each of
+  its corners ``p_i`` is joined to the one corner ``q_i`` it shares an edge with outside the base
+  (of the three edges leaving ``p_i`` in the faces' own direction, two run to the base's corners
+  beside it): the cell's corners in VTK order are the base and then the ``q_i`` (hexahedra,
+  wedges) or the one ``q`` (pyramids, tetrahedra);
+* the cell so made must have distinct corners and exactly the polyhedron's faces, loop for loop
+  (each face the same cycle of corners, all in the listed direction or all reversed), so a face
+  list that is not a closed, consistently oriented surface is never taken as an ordinary cell;
+* the corners are put in the order of positive measure (:attr:`phasegauge.model.mesh.Mesh.signed_measures`),
+  told by the sign of the volume the divergence theorem gives for the faces' fan triangles.
+
+A cell so read is the same solid as the polyhedron: the same corners, the same faces. What
+changes is how it is split where a split is needed (the ordinary cells' rule,
+:func:`phasegauge.model.simplices.split_cells`, against :func:`phasegauge.model.polyhedra.split_polyhedra`:
+the same tetrahedra wherever a quad face is bent, since both cut it along its shorter diagonal).
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+
+import numpy as np
+
+from .cells import FACES
+
+__all__ = ["ShapeBlock", "ordinary_shapes", "LOOPS"]
+
+#: (triangles, quads) of each ordinary cell's faces -> VTK type name, base face size, corners from ``q``
+_SHAPES = {(4, 0): ("tetra", 3, 1), (4, 1): ("pyramid", 4, 1), (2, 3): ("wedge", 3, 3), (0, 6): ("hexahedron", 4, 4)}
+
+#: each cell type's faces as loops that run one way round the surface (every edge once each way):
+#: :data:`.cells.FACES`, whose tetrahedron lists corner sets only, with the tetrahedron's loops turned
+LOOPS = {**FACES, "tetra": ((0, 2, 1), (0, 1, 3), (1, 2, 3), (0, 3, 2))}
+
+#: the sign of the volume of :data:`LOOPS` for a cell of positive measure: a wedge in meshio's corner
+#: order (gmsh's) has its loops turned inwards
+_LOOPS_SIGN = {"wedge": -1}
+
+#: corner orders that turn each cell over (the reverse orientation)
+#: cells recognised at a time (temporaries of a few MB)
+_CHUNK = 1 << 15
+
+_TURNED = {"tetra": (0, 2, 1, 3), "pyramid": (0, 3, 2, 1, 4), "wedge": (3, 4, 5, 0, 1, 2),
+           "hexahedron": (4, 5, 6, 7, 0, 1, 2, 3)}
+
+
+@dataclass(frozen=True)
+class ShapeBlock:
+    """Polyhedra read as ordinary cells of one type.
+
+    Attributes
+    ----------
+    cell_type : str
+        ``"tetra"``, ``"pyramid"``, ``"wedge"`` or ``"hexahedron"``.
+    connectivity : ndarray of shape (k, corners), int64
+        Corner point ids in VTK order, positively oriented.
+    cells : ndarray of shape (k,), int64
+        Which polyhedra (0 to ``n_cells - 1`` of the face stream) they are, increasing.
+    """
+
+    cell_type: str
+    connectivity: np.ndarray
+    cells: np.ndarray
+
+
+def ordinary_shapes(points, face_points, face_offsets, face_cell, n_cells: int) -> list[ShapeBlock] | None:
+    """The polyhedra of a face stream as ordinary cells, or None when any one is not one.
+
+    Parameters
+    ----------
+    points : array_like of shape (n, 3)
+        Point coordinates.
+    face_points, face_offsets, face_cell : array_like
+        The face stream of :func:`phasegauge.model.polyhedra.split_polyhedra`: corners of all
+        faces, their offsets (``n_faces + 1``), the cell of each face; faces listed cell after cell.
+    n_cells : int
+        Number of polyhedra.
+
+    Returns
+    -------
+    list of ShapeBlock or None
+        One block per cell type found, covering every polyhedron; None when some polyhedron is
+        not a tetrahedron, pyramid, wedge or hexahedron by the rule of the module notes (the
+        caller then splits them all as polyhedra).
+    """
+    face_points = np.asarray(face_points)
+    face_offsets = np.asarray(face_offsets, dtype=np.int64)
+    face_cell = np.asarray(face_cell, dtype=np.int64)
+    if n_cells == 0 or face_cell.size == 0 or np.any(np.diff(face_cell) < 0):
+        return None
+    sizes = np.diff(face_offsets)
+    if np.any((sizes != 3) & (sizes != 4)):
+        return None
+    n_tri = np.bincount(face_cell, weights=sizes == 3, minlength=n_cells).astype(np.int64)
+    n_quad = np.bincount(face_cell, weights=sizes == 4, minlength=n_cells).astype(np.int64)
+    first_face = np.concatenate([[0], np.cumsum(n_tri + n_quad)])
+    X = np.asarray(points, dtype=np.float64)
+    blocks = []
+    found = np.zeros(n_cells, dtype=bool)
+    for (tri, quad), (name, base_size, from_q) in _SHAPES.items():
+        cells = np.flatnonzero((n_tri == tri) & (n_quad == quad))
+        if cells.size == 0:
+            continue
+        conn = np.empty((cells.size, base_size + from_q), dtype=np.int64)
+        for a in range(0, cells.size, _CHUNK):  # a chunk's temporaries stay small beside the mesh
+            part = _shape_cells(X, face_points, face_offsets, first_face[cells[a:a + _CHUNK]], tri + quad,
+                                base_size, from_q, name)
+            if part is None:
+                return None
+            conn[a:a + _CHUNK] = part
+        blocks.append(ShapeBlock(name, conn, cells))
+        found[cells] = True
+    return blocks if found.all() else None
+
+
+def _shape_cells(X, face_points, face_offsets, first, n_faces: int, base_size: int, from_q: int, name: str):
+    """Corner lists (VTK order, positive volume) of cells of one face signature, or None when any
+    one is not the cell ``name``."""
+    k = first.size
+    faces = first[:, None] + np.arange(n_faces)  # (k, F) face numbers
+    starts = face_offsets[faces]
+    fsize = face_offsets[faces + 1] - starts
+    slot = np.arange(4)
+    valid = slot < fsize[..., None]  # (k, F, 4)
+    loops = np.where(valid, face_points[starts[..., None] + np.minimum(slot, fsize[..., None] - 1)], -1)
+    ends = np.where(slot + 1 < fsize[..., None], np.roll(loops, -1, axis=2), loops[..., :1])  # the next corners
+    base = np.argmax(fsize == base_size, axis=1)
+    p = loops[np.arange(k), base, :base_size]
+    starts_flat, ends_flat = loops.reshape(k, -1), ends.reshape(k, -1)
+    q = np.empty((k, base_size), dtype=loops.dtype)
+    for i in range(base_size):  # (a cell with no such edge, or two, fails the check of its faces below)
+        leaving = ((starts_flat == p[:, i, None]) & (ends_flat != p[:, (i + 1) % base_size, None])
+                   & (ends_flat != p[:, i - 1, None]))
+        q[:, i] = ends_flat[np.arange(k), np.argmax(leaving, axis=1)]
+    conn = np.concatenate([p, q[:, :from_q]], axis=1)
+    ordered = np.sort(conn, axis=1)
+    if np.any(ordered[:, 1:] == ordered[:, :-1]) or not _same_faces(loops, fsize, conn, name):
+        return None
+    turned = _signed_volumes(X, conn, name) * _LOOPS_SIGN.get(name, 1) < 0
+    conn[turned] = conn[turned][:, list(_TURNED[name])]
+    return conn
+
+
+def _same_faces(loops, fsize, conn, name: str) -> bool:
+    """Whether every cell's faces are the faces of ``conn`` as cell ``name``, loop for loop, all in
+    their direction or all reversed.
+
+    Each face corner is put as its place in ``conn`` (0-7), and each loop as one number: its size
+    and the places read from the smallest one round (the same loop whatever corner it starts at).
+    A cell's sorted loop numbers must equal the cell type's own (:data:`LOOPS`), or those of
+    its faces reversed.
+    """
+    place = np.zeros(loops.shape, dtype=np.int16)
+    hits = np.zeros(loops.shape, dtype=np.int8)
+    for j in range(conn.shape[1]):
+        equal = loops == conn[:, j, None, None]
+        place += np.int16(j) * equal
+        hits += equal
+    if np.any(hits[np.arange(4) < fsize[..., None]] != 1):  # a corner that is not one of the cell's
+        return False
+    codes = np.zeros(fsize.shape, dtype=np.int32)
+    for size in (3, 4):
+        code = np.minimum.reduce([_loop_number(place[..., [(r + t) % size for t in range(size)]])
+                                  for r in range(size)])
+        codes = np.where(fsize == size, code + size * 4096, codes)
+    codes.sort(axis=1)
+    faces = LOOPS[name]
+    forward = np.sort([_own_number(f) for f in faces])
+    backward = np.sort([_own_number(f[::-1]) for f in faces])
+    return bool(np.all(np.all(codes == forward, axis=1) | np.all(codes == backward, axis=1)))
+
+
+def _loop_number(places: np.ndarray) -> np.ndarray:
+    """The places along the last axis as digits of base 8, the first the highest."""
+    number = np.zeros(places.shape[:-1], dtype=np.int32)
+    for t in range(places.shape[-1]):
+        number = number * 8 + places[..., t]
+    return number
+
+
+def _own_number(face) -> int:
+    """The loop number of a face of the cell type's own table (see :func:`_same_faces`)."""
+    size = len(face)
+    turns = [[face[(r + t) % size] for t in range(size)] for r in range(size)]
+    return min(int(_loop_number(np.array(turn))) for turn in turns) + size * 4096
+
+
+def _signed_volumes(X, conn, name: str) -> np.ndarray:
+    """Six times the volume of each cell bounded by its faces' fan triangles (divergence theorem),
+    about its first corner."""
+    rel = X[conn[:, 1:]] - X[conn[:, :1]]  # corners 1.. about corner 0 (corner 0 is the origin)
+    rel = np.concatenate([np.zeros((conn.shape[0], 1, 3)), rel], axis=1)
+    x, y, z = rel[..., 0], rel[..., 1], rel[..., 2]
+    volume = np.zeros(conn.shape[0])
+    for face in LOOPS[name]:
+        a = face[0]
+        for b, c in zip(face[1:-1], face[2:]):
+            if 0 in (a, b, c):
+                continue  # a triangle through the origin adds nothing
+            volume += (x[:, a] * (y[:, b] * z[:, c] - z[:, b] * y[:, c]) + y[:, a] * (z[:, b] * x[:, c] - x[:, b] * z[:, c])
+                       + z[:, a] * (x[:, b] * y[:, c] - y[:, b] * x[:, c]))
+    return volume
