@@ -350,7 +350,8 @@ class OrdinaryCells:
     ----------
     blocks : list of (str, ndarray, ndarray)
         ``(cell type, connectivity, input rows)``: the hexahedra, wedges and pyramids of the file as
-        they are, then the polyhedra as the cells they are (:func:`~phasegauge.model._polyhedron_shapes.ordinary_shapes`).
+        they are, then the polyhedra as the cells they are
+        (:func:`~phasegauge.model._polyhedron_shapes.ordinary_shapes`).
     words : str
         How the polyhedra were read (``inspect`` shows it).
     """

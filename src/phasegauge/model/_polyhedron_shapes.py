@@ -204,6 +204,7 @@ def _signed_volumes(X, conn, name: str) -> np.ndarray:
         for b, c in zip(face[1:-1], face[2:]):
             if 0 in (a, b, c):
                 continue  # a triangle through the origin adds nothing
-            volume += (x[:, a] * (y[:, b] * z[:, c] - z[:, b] * y[:, c]) + y[:, a] * (z[:, b] * x[:, c] - x[:, b] * z[:, c])
+            volume += (x[:, a] * (y[:, b] * z[:, c] - z[:, b] * y[:, c])
+                       + y[:, a] * (z[:, b] * x[:, c] - x[:, b] * z[:, c])
                        + z[:, a] * (x[:, b] * y[:, c] - y[:, b] * x[:, c]))
     return volume
