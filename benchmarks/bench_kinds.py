@@ -7,8 +7,11 @@ Runs, one configuration at a time in fresh child processes (the jobs of ``bench_
   tetrahedra, the regular grid of hexahedra, the jittered hexahedra), configurations ``raw``,
   ``baseline`` and ``serial``;
 * ``polyhedron``: ``bench_polyhedra.py``'s folder of VTK polyhedra (the jittered hexahedra
-  written as polyhedra), configurations ``baseline`` (pyvista on the polyhedra) and
-  ``polyhedra`` (``measure``).
+  written as polyhedra, which the reader takes as hexahedra), configurations ``baseline``
+  (pyvista on the polyhedra) and ``polyhedra`` (``measure``);
+* ``polyhedron-split``: its ``split`` folder (the same with one cell of another shape, so every
+  polyhedron is split into tetrahedra, as the ``polyhedron`` rows of rounds before the fourteenth
+  were), ``measure`` only, beside the same baseline.
 
 and prints one markdown table: wall and CPU seconds of the baseline and of ``measure``, their
 ratio, the first step, the later steps' median, microseconds per cell-step, peak memory over one
@@ -18,7 +21,7 @@ from ``previous_round.json`` (figures copied from ``RESULTS.md``, each with its 
 Usage::
 
     PYTHONPATH=src python benchmarks/bench_kinds.py [--sizes 0.25,1,4] [--steps 5]
-        [--kinds tetra,grid,hexahedron,polyhedron] [--skip polyhedron:4] [--json OUT]
+        [--kinds tetra,grid,hexahedron,polyhedron,polyhedron-split] [--skip polyhedron-split:4] [--json OUT]
 
 ``--skip KIND:SIZE`` leaves a series out (say why in RESULTS.md: the polyhedra at 4M cells need
 about 63x a step's bytes, more memory than this machine has).
@@ -41,7 +44,7 @@ import bench_measure  # noqa: E402  (the jobs and series of the per-kind benchma
 import bench_polyhedra  # noqa: E402
 
 HERE = os.path.dirname(os.path.abspath(__file__))
-KINDS = ("tetra", "grid", "hexahedron", "polyhedron")
+KINDS = ("tetra", "grid", "hexahedron", "polyhedron", "polyhedron-split")
 COLUMNS = ("kind", "cells", "baseline s (cpu)", "measure s (cpu)", "measure / baseline wall (cpu)",
            "first step s", "later steps s", "us per cell-step", "peak / step bytes",
            "previous: measure / baseline", "previous: us per cell-step", "previous: peak / step bytes")
@@ -57,13 +60,19 @@ def run_measure_kind(folder: str, kind: str, millions: float, steps: int) -> dic
     return _row(kind, info["cells"], base, ser, peak / info["step_bytes"])
 
 
-def run_polyhedra(folder: str, millions: float, steps: int) -> dict:
-    """``bench_polyhedra.py``'s baseline and measure jobs on the polyhedra; the figures of one row."""
+def run_polyhedra(folder: str, millions: float, steps: int, kind: str = "polyhedron", baselines=None) -> dict:
+    """``bench_polyhedra.py``'s baseline and measure jobs on the polyhedra (``polyhedron``: hexahedra
+    written as polyhedra, read as hexahedra; ``polyhedron-split``: the same with one cell of another
+    shape, so all are split); the figures of one row. The baseline runs once per size (``baselines``)."""
     info = bench_polyhedra.build(folder, millions, steps)
-    bench_measure._warm_file_cache(os.path.join(info["polyhedra"], ""))  # the files of that folder
-    base = bench_polyhedra.run_child("baseline", info["polyhedra"])
-    ser = bench_polyhedra.run_child("polyhedra", info["polyhedra"])
-    return _row("polyhedron", info["cells"], base, ser, ser["peak"] / info["step_bytes"])
+    series = info["split" if kind == "polyhedron-split" else "polyhedra"]
+    baselines = {} if baselines is None else baselines
+    if millions not in baselines:
+        bench_measure._warm_file_cache(os.path.join(info["polyhedra"], ""))  # the files of that folder
+        baselines[millions] = bench_polyhedra.run_child("baseline", info["polyhedra"])
+    bench_measure._warm_file_cache(os.path.join(series, ""))
+    ser = bench_polyhedra.run_child("polyhedra", series)
+    return _row(kind, info["cells"], baselines[millions], ser, ser["peak"] / info["step_bytes"])
 
 
 def _row(kind, cells, base, ser, peak_x) -> dict:
@@ -108,23 +117,24 @@ def main(argv=None) -> None:
         previous = json.load(handle)["figures"]
     folder = args.keep or tempfile.mkdtemp(prefix="pg-bench-kinds-")
     os.makedirs(folder, exist_ok=True)
-    rows = []
+    rows, baselines = [], {}
     for millions in (s for s in args.sizes.split(",") if s):
         for kind in kinds:
             if (kind, millions) in skip:
                 print(f"{kind} at {millions}M cells: left out (--skip)", flush=True)
                 continue
             start = time.perf_counter()
-            sub = os.path.join(folder, f"{kind}-{millions}")
+            sub = os.path.join(folder, f"{kind.replace('-split', '')}-{millions}")  # the split reads the same folder
             os.makedirs(sub, exist_ok=True)
-            row = (run_polyhedra(sub, float(millions), args.steps) if kind == "polyhedron"
+            row = (run_polyhedra(sub, float(millions), args.steps, kind, baselines) if kind.startswith("polyhedron")
                    else run_measure_kind(sub, kind, float(millions), args.steps))
             row["size"] = millions  # the previous round's figures are keyed by the size asked
             rows.append(row)
             print(f"{kind} {row['cells']} cells: measure / baseline {row['measure_s'] / row['baseline_s']:.2f} "
                   f"(cpu {row['measure_cpu'] / row['baseline_cpu']:.2f}), {row['us_per_cell_step']:.2f} us per "
                   f"cell-step, peak {row['peak_x_step']:.1f}x step ({time.perf_counter() - start:.0f} s)", flush=True)
-            if not args.keep:  # a series' files are not needed once its row is measured
+            shared = kind == "polyhedron" and "polyhedron-split" in kinds  # the split reads the same folder
+            if not args.keep and not shared:  # a series' files are not needed once its row is measured
                 shutil.rmtree(sub, ignore_errors=True)
     print()
     print(table(rows, previous))

@@ -6,7 +6,11 @@ of about ``--sizes`` million hexahedra, with the droplet field ``c`` of
 ``bench_measure.droplet_field`` on the points:
 
 * ``polyhedra``: every cell written as a VTK polyhedron (42), six quad faces each;
-* ``hexahedra``: the same cells written as VTK hexahedra (12).
+* ``hexahedra``: the same cells written as VTK hexahedra (12);
+* ``split``: the polyhedra again, with the first cell's bottom face (on the boundary) written as two
+  triangles: that one cell is no ordinary cell, so the reader splits every polyhedron into
+  tetrahedra, as in a file of polyhedra of other shapes (a file whose polyhedra are all hexahedra
+  is read as hexahedra).
 
 Then times, each configuration in a fresh child process, after one untimed read of the files:
 
@@ -57,21 +61,45 @@ def build(folder: str, millions: float, steps: int) -> dict:
     info_path = os.path.join(base, "info.json")
     if os.path.exists(info_path):
         with open(info_path) as handle:
-            return json.load(handle)
+            info = json.load(handle)
+        if "split" in info:
+            return info
     mesh = grid_mesh((n, n, n), kind="hexahedron", jitter=0.2, seed=1)
-    poly = to_polyhedral_grid(mesh)
-    hexa = pyvista.UnstructuredGrid({pyvista.CellType.HEXAHEDRON: mesh.blocks[0].connectivity}, mesh.points)
-    for name, grid in (("polyhedra", poly), ("hexahedra", hexa)):
+    grids = {"split": _one_odd_cell(mesh)}
+    if not os.path.exists(info_path):  # series of an earlier build are kept
+        grids["polyhedra"] = to_polyhedral_grid(mesh)
+        grids["hexahedra"] = pyvista.UnstructuredGrid({pyvista.CellType.HEXAHEDRON: mesh.blocks[0].connectivity},
+                                                      mesh.points)
+    for name, grid in grids.items():
         os.makedirs(os.path.join(base, name), exist_ok=True)
         for k in range(steps):
             grid.point_data["c"] = droplet_field(mesh.points, k, steps, 1.0 / n)
             grid.save(os.path.join(base, name, f"step_{k:04d}.vtu"))
     step_bytes = mesh.points.nbytes + sum(b.connectivity.nbytes for b in mesh.blocks) + 8 * mesh.n_points
     info = {"cells": mesh.n_cells, "points": mesh.n_points, "steps": steps, "step_bytes": step_bytes,
-            "polyhedra": os.path.join(base, "polyhedra"), "hexahedra": os.path.join(base, "hexahedra")}
+            **{name: os.path.join(base, name) for name in ("polyhedra", "hexahedra", "split")}}
     with open(info_path, "w") as handle:
         json.dump(info, handle)
     return info
+
+
+def _one_odd_cell(mesh):
+    """The mesh's hexahedra as polyhedra, the first cell's bottom face (z lowest: on the boundary of
+    the grid) as two triangles."""
+    import pyvista
+
+    from phasegauge.model.cells import FACES
+
+    conn = mesh.blocks[0].connectivity
+    faces = FACES["hexahedron"]
+    per_cell = 1 + sum(1 + len(f) for f in faces)
+    rows = np.column_stack([np.full(len(conn), per_cell), np.full(len(conn), len(faces))]
+                           + [c for f in faces for c in (np.full(len(conn), len(f)), *(conn[:, i] for i in f))])
+    a, b, c, d = conn[0, list(faces[0])]  # (0, 3, 2, 1): the bottom face, outward
+    first = [per_cell + 3, len(faces) + 1, 3, a, b, c, 3, a, c, d] + rows[0, 7:].tolist()  # after the first face
+    stream = np.concatenate([first, rows[1:].ravel()]).astype(np.int64)
+    types = np.full(len(conn), pyvista.CellType.POLYHEDRON, dtype=np.uint8)
+    return pyvista.UnstructuredGrid(stream, types, mesh.points)
 
 
 def job_baseline(folder: str) -> dict:
