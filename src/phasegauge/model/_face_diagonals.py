@@ -37,6 +37,9 @@ __all__ = ["shorter_diagonals", "loop_diagonals", "diagonal_triangles", "turned_
 #: two diagonals this close (relative to the longer) are a tie: the face gets a centre
 _TIE = 1e-9
 
+#: faces (or face corners) worked on at a time: temporaries of a few MB
+_CHUNK = 1 << 16
+
 
 def shorter_diagonals(cell_type: str, P: list) -> tuple[np.ndarray, np.ndarray]:
     """Per cell and quad face (``FACES`` order, quads only): whether its face corners 1-3 are the
@@ -126,24 +129,34 @@ def polyhedra_quad_cuts(X: np.ndarray, face_points, face_offsets, faces, group, 
     ``cell_totals`` (:func:`cell_turn_totals`), or of a volume under 1e-12 of the cell's (three
     corners in a line), keeps its centre, for both of its cells.
     """
-    start = np.asarray(face_offsets)[first]
-    corners = [face_points[start + j] for j in range(4)]
-    along13, centred = loop_diagonals([[X[c, i] for i in range(3)] for c in corners])
-    ends = np.where(along13, corners[1], corners[0])  # one end of each distinct face's diagonal
-    other = np.where(along13, corners[3], corners[2])
-    start = np.asarray(face_offsets)[faces]
-    own = face_points[start]
-    shift = ((own != ends[group]) & (own != other[group])).astype(np.int64)  # corner 0 not on it: 1-3
-    cell = face_cell[faces]
-    total = cell_totals[cell]
-    R = []
-    for j in range(4):
-        point = face_points[start + (shift + j) % 4]
-        R.append([X[point, i] - cell_centres[cell, i] for i in range(3)])
-    # a triangle whose tetrahedron is turned, or flat (three corners in a line, as a hanging
-    # node on an edge makes: found by review), keeps the face's centre
-    least = 1e-12 * total * total
-    turned = (_triple(R[0], R[1], R[2]) * total <= least) | (_triple(R[0], R[2], R[3]) * total <= least)
+    offsets = np.asarray(face_offsets)
+    ends = np.empty(first.size, dtype=face_points.dtype)  # one end of each distinct face's diagonal
+    other = np.empty(first.size, dtype=face_points.dtype)
+    centred = np.empty(first.size, dtype=bool)
+    for lo in range(0, first.size, _CHUNK):  # chunk by chunk: a few MB of coordinates at a time
+        start = offsets[first[lo:lo + _CHUNK]]
+        corners = [face_points[start + j] for j in range(4)]
+        along13, centred[lo:lo + _CHUNK] = loop_diagonals([[X[c, i] for i in range(3)] for c in corners])
+        ends[lo:lo + _CHUNK] = np.where(along13, corners[1], corners[0])
+        other[lo:lo + _CHUNK] = np.where(along13, corners[3], corners[2])
+    shift = np.empty(faces.size, dtype=np.int64)
+    turned = np.empty(faces.size, dtype=bool)
+    for lo in range(0, faces.size, _CHUNK):
+        start = offsets[faces[lo:lo + _CHUNK]]
+        own, g = face_points[start], group[lo:lo + _CHUNK]
+        part = ((own != ends[g]) & (own != other[g])).astype(np.int64)  # corner 0 not on it: 1-3
+        shift[lo:lo + _CHUNK] = part
+        cell = face_cell[faces[lo:lo + _CHUNK]]
+        total = cell_totals[cell]
+        R = []
+        for j in range(4):
+            point = face_points[start + (part + j) % 4]
+            R.append([X[point, i] - cell_centres[cell, i] for i in range(3)])
+        # a triangle whose tetrahedron is turned, or flat (three corners in a line, as a hanging
+        # node on an edge makes: found by review), keeps the face's centre
+        least = 1e-12 * total * total
+        turned[lo:lo + _CHUNK] = ((_triple(R[0], R[1], R[2]) * total <= least)
+                                  | (_triple(R[0], R[2], R[3]) * total <= least))
     centred |= np.bincount(group[turned], minlength=first.size) > 0
     return shift, centred
 
@@ -154,9 +167,8 @@ def cell_turn_totals(X: np.ndarray, face_points, face_offsets, sizes, nxt, edge_
     orientation :func:`polyhedra_quad_cuts` compares a face's triangles with), chunk by chunk."""
     fan = np.repeat(face_points[np.asarray(face_offsets)[:-1]], sizes)
     total = np.zeros(n_cells)
-    chunk = 1 << 16
-    for lo in range(0, face_points.size, chunk):
-        hi = lo + chunk
+    for lo in range(0, face_points.size, _CHUNK):
+        hi = lo + _CHUNK
         cell = edge_cell[lo:hi]
         m = [cell_centres[cell, i] for i in range(3)]
         R = [[X[p, i] - m[i] for i in range(3)] for p in (fan[lo:hi], face_points[lo:hi], face_points[nxt[lo:hi]])]

@@ -100,6 +100,11 @@ def ordinary_shapes(points, face_points, face_offsets, face_cell, n_cells: int) 
         return None
     n_tri = np.bincount(face_cell, weights=sizes == 3, minlength=n_cells).astype(np.int64)
     n_quad = np.bincount(face_cell, weights=sizes == 4, minlength=n_cells).astype(np.int64)
+    known = np.zeros(n_cells, dtype=bool)
+    for tri, quad in _SHAPES:
+        known |= (n_tri == tri) & (n_quad == quad)
+    if not known.all():  # a polyhedron of another shape: no work on the others
+        return None
     first_face = np.concatenate([[0], np.cumsum(n_tri + n_quad)])
     X = np.asarray(points, dtype=np.float64)
     blocks = []
