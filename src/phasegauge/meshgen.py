@@ -192,13 +192,14 @@ def to_meshio(mesh: Mesh, point_data=None, cell_data=None, field_data=None):
 def to_polyhedral_grid(mesh: Mesh, *, point_data=None, cell_data=None, reverse: bool = False):
     """A pyvista UnstructuredGrid with every 3D cell of ``mesh`` written as a VTK polyhedron (42).
 
-    Each cell's faces are listed in the order of :data:`phasegauge.model.cells.FACES` with
-    outward normals (inward with ``reverse``). Point and cell data (joined over the blocks)
-    are attached as given.
+    Each cell's faces are listed in the order of :data:`phasegauge.model.cells.FACES`, as loops
+    that run one way round the cell (:data:`phasegauge.model._polyhedron_shapes.LOOPS`): outward
+    normals, a wedge's inward (meshio's corner order); the other way with ``reverse``. Point and
+    cell data (joined over the blocks) are attached as given.
     """
     import pyvista
 
-    from .model.cells import FACES
+    from .model._polyhedron_shapes import LOOPS as FACES
 
     parts = []
     for block in mesh.blocks:

@@ -29,7 +29,7 @@ def _sheared(kind, seed=0):
 
 
 @pytest.mark.parametrize("reverse", [False, True])
-@pytest.mark.parametrize("kind", ["hexahedron", "mixed", "wedge", "pyramid"])
+@pytest.mark.parametrize("kind", ["hexahedron", "mixed", "wedge", "pyramid", "tetra"])
 def test_polyhedra_read_as_the_cells_they_are(tmp_path, kind, reverse):
     mesh, points = _sheared(kind)
     grid = to_polyhedral_grid(mesh, reverse=reverse)

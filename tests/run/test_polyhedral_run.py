@@ -13,6 +13,9 @@ pv = pytest.importorskip("pyvista")
 from phasegauge.meshgen import grid_mesh, to_polyhedral_grid  # noqa: E402
 from phasegauge.run.measure import measure  # noqa: E402
 
+# hexahedra written as polyhedra, split as polyhedra of other shapes are (conftest)
+pytestmark = pytest.mark.usefixtures("every_polyhedron_split")
+
 RADII = (0.2, 0.15)
 WIDTH = 0.05
 
