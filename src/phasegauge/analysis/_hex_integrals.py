@@ -214,7 +214,7 @@ class _HexCells:
                     last = max(first + 1, int(np.searchsorted(bounds, bounds[first] + _CELL_CHUNK, "right")) - 1)
                     rows = picked[bounds[first]:bounds[last]]
                     self._smooth(block.connectivity, local[rows], codes[rows], clipped, columns, start,
-                                 inside[rows], bounds[first:last + 1] - bounds[first])
+                                 inside[rows], (bounds[first:last + 1] - bounds[first]).tolist())
                     first = last
                 if smooth.any():
                     local, codes = local[~smooth], codes[~smooth]
@@ -488,14 +488,17 @@ class _HexBand:
         return self.values, dist, known
 
 
-def _within(mask: np.ndarray, segments: np.ndarray) -> np.ndarray:
+def _within(mask: np.ndarray, segments: list) -> list:
     """The offsets ``segments`` into an array, as offsets into its entries where ``mask`` holds."""
-    return np.concatenate([[0], np.cumsum(mask)])[segments]
+    out = [0]
+    for lo, hi in _pairs(segments):
+        out.append(out[-1] + int(np.count_nonzero(mask[lo:hi])))
+    return out
 
 
-def _pairs(segments: np.ndarray):
+def _pairs(segments: list):
     """(start, stop) of each segment between consecutive offsets."""
-    return zip(segments[:-1].tolist(), segments[1:].tolist())
+    return zip(segments[:-1], segments[1:])
 
 
 def _corner_distances(dist: np.ndarray, conn: np.ndarray) -> tuple:
