@@ -193,7 +193,9 @@ class _HexCells:
         self.need = np.zeros(mesh.n_points, dtype=bool)
         self.band = self.mixed = self.total_gradient = 0.0
         self.chunks = []  # (tetrahedra, block connectivity, its rows (n,), face codes (n,), weights (n_tetrahedra, n))
-        self.smooth_chunks = []  # (block connectivity, its rows (n,), weights (n,)) of cells by quadrature
+        # (block connectivity, its rows (n,), weights (n,), offsets of the cells summed together) of
+        # cells by quadrature
+        self.smooth_chunks = []
         self.count = 0
         for block, start, (local, codes) in zip(mesh.blocks, mesh.block_offsets[:-1], rows):
             if local.size == 0:
@@ -202,11 +204,18 @@ class _HexCells:
                 low_all, high_all = low[start + local], high[start + local]
                 inside = (low_all > _LOW) & (high_all < _HIGH)
                 smooth = inside | (high_all < _LOW) | (low_all > _HIGH)
-                for lo in range(0, local.size, _CELL_CHUNK):
-                    pick = slice(lo, lo + _CELL_CHUNK)
-                    if smooth[pick].any():
-                        self._smooth(block.connectivity, local[pick][smooth[pick]], codes[pick][smooth[pick]],
-                                     clipped, columns, start, inside[pick][smooth[pick]])
+                picked = np.flatnonzero(smooth)
+                # the smooth cells of each chunk of _CELL_CHUNK cells are summed on their own (the
+                # same sums as one call a chunk); several chunks' cells are formed in one call
+                bounds = np.searchsorted(picked, np.arange(0, local.size + _CELL_CHUNK, _CELL_CHUNK))
+                bounds = np.unique(bounds)
+                first = 0
+                while first < bounds.size - 1:
+                    last = max(first + 1, int(np.searchsorted(bounds, bounds[first] + _CELL_CHUNK, "right")) - 1)
+                    rows = picked[bounds[first]:bounds[last]]
+                    self._smooth(block.connectivity, local[rows], codes[rows], clipped, columns, start,
+                                 inside[rows], (bounds[first:last + 1] - bounds[first]).tolist())
+                    first = last
                 if smooth.any():
                     local, codes = local[~smooth], codes[~smooth]
             centred = codes & 63
@@ -331,9 +340,11 @@ class _HexCells:
                                                                 np.tile(vm[cut], len(tets))]) / _SIX
         return weights
 
-    def _smooth(self, connectivity, part, codes, values, columns, start, inside):
+    def _smooth(self, connectivity, part, codes, values, columns, start, inside, segments):
         """Integrals of cells no band edge crosses, by the cell's trilinear map (see the module notes);
-        the band cells add the split's volume of the cell (:func:`_split_volumes`)."""
+        the band cells add the split's volume of the cell (:func:`_split_volumes`). ``segments``
+        (offsets into ``part``, from 0 to its size) marks the cells summed together: each segment's
+        sums are added on their own, in order."""
         conn = connectivity[part]
         ids = [conn[:, q] for q in range(8)]
         v = [values[i] for i in ids]
@@ -349,8 +360,11 @@ class _HexCells:
         det = _dot(j[0], a0)
         volume = self.mesh.cell_measures[start + part]
         if inside.any():
-            self.band += float(_split_volumes([[x[inside] for x in corner] for corner in X], codes[inside],
-                                              np.copysign(volume[inside], det[inside])).sum())
+            split = _split_volumes([[x[inside] for x in corner] for corner in X], codes[inside],
+                                   np.copysign(volume[inside], det[inside]))
+            for lo, hi in _pairs(_within(inside, segments)):
+                if hi > lo:
+                    self.band += float(split[lo:hi].sum())
         del X
         np.abs(det, out=det)
         g2 = 0.0
@@ -364,26 +378,30 @@ class _HexCells:
         squares = corner_sum(x * x for x in v) / 8.0
         # int c (1 - c): the corners' mean of c^2 with weight 1/3, the centre's with 2/3 (exact for
         # c linear on a parallelepiped)
-        self.mixed += float(dot(volume, mean - squares / 3.0 - (2.0 / 3.0) * mean * mean))
-        self.total_gradient += float(weights.sum())
+        mixed = mean - squares / 3.0 - (2.0 / 3.0) * mean * mean
+        for lo, hi in _pairs(segments):
+            self.mixed += float(dot(volume[lo:hi], mixed[lo:hi]))
+            self.total_gradient += float(weights[lo:hi].sum())
         self.count += part.size
         varying = weights > 0
         for i in ids:
             self.known[i[varying]] = True
-        self.smooth_chunks.append((connectivity, part[varying], weights[varying]))
+        self.smooth_chunks.append((connectivity, part[varying], weights[varying], _within(varying, segments)))
 
     def moments(self, dist: np.ndarray) -> np.ndarray:
         """(m0, m1, m2) over the cells whose eight corner distances are known (by the quadrature's
         rule where the integrals took it, else over their tetrahedra)."""
         m0 = m1 = m2 = 0.0
-        for connectivity, part, weights in self.smooth_chunks:  # the same rule as int c (1 - c)
+        for connectivity, part, weights, segments in self.smooth_chunks:  # the same rule as int c (1 - c)
             d, dm = _corner_distances(dist, connectivity[part])
             ok = np.isfinite(dm)
             squares = corner_sum(x * x for x in d) / 8.0
-            w = weights[ok]
-            m0 += _SIX * float(w.sum())
-            m1 += 4.0 * _SIX * dot(w, dm[ok])
-            m2 += 20.0 * _SIX * dot(w, squares[ok] / 3.0 + (2.0 / 3.0) * dm[ok] * dm[ok])
+            w, dm = weights[ok], dm[ok]
+            second = squares[ok] / 3.0 + (2.0 / 3.0) * dm * dm
+            for lo, hi in _pairs(_within(ok, segments)):  # each segment's sums on their own
+                m0 += _SIX * float(w[lo:hi].sum())
+                m1 += 4.0 * _SIX * dot(w[lo:hi], dm[lo:hi])
+                m2 += 20.0 * _SIX * dot(w[lo:hi], second[lo:hi])
         for tets, connectivity, part, codes, weights in self.chunks:
             # the chunk's corners gathered again: 8 bytes a cell kept, not 64
             d, dm = _corner_distances(dist, connectivity[part])
@@ -468,6 +486,19 @@ class _HexBand:
         if self.rest is not None:
             known = known | self.rest.known[:self.mesh.n_points]
         return self.values, dist, known
+
+
+def _within(mask: np.ndarray, segments: list) -> list:
+    """The offsets ``segments`` into an array, as offsets into its entries where ``mask`` holds."""
+    out = [0]
+    for lo, hi in _pairs(segments):
+        out.append(out[-1] + int(np.count_nonzero(mask[lo:hi])))
+    return out
+
+
+def _pairs(segments: list):
+    """(start, stop) of each segment between consecutive offsets."""
+    return zip(segments[:-1], segments[1:])
 
 
 def _corner_distances(dist: np.ndarray, conn: np.ndarray) -> tuple:

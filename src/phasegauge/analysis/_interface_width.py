@@ -176,7 +176,9 @@ def bulk_plateaus(c_point: np.ndarray, level: float) -> tuple[float, float, floa
     profile between any two plateaus gives its 5-95 % thickness between them.
     """
     c = np.asarray(c_point, dtype=np.float64)
-    c = c[np.isfinite(c)]
+    finite = np.isfinite(c)
+    if not finite.all():  # (no copy of the values when all are finite)
+        c = c[finite]
     plateaus, spreads = [], []
     for side, ideal, q in ((c[c < level], 0.0, 0.5), (c[c > level], 1.0, 99.5)):
         if side.size == 0:
@@ -365,7 +367,7 @@ def interface_metrics(mesh: Mesh, indicator, *, level: float = 0.5, contour: Con
     """
     max_samples = _check_samples(max_samples)
     work = _Work(mesh, indicator, level, contour, extremes, plateaus)
-    metrics, _, distances = _metrics(work, max_samples, threads)
+    metrics, _, distances = _metrics(work, max_samples, threads, distances=return_distances)
     return (metrics, distances) if return_distances else metrics
 
 
@@ -409,7 +411,8 @@ def interface_profile_table(mesh: Mesh, indicator, *, level: float = 0.5, contou
     return _metrics(work, max_samples)[1]
 
 
-def _metrics(work: _Work, max_samples: int, threads: int = 1):
+def _metrics(work: _Work, max_samples: int, threads: int = 1, *, distances: bool = False):
+    """The metrics, the profile table and (with ``distances``, else None) the distances measured."""
     mesh, contour, integrals = work.mesh, work.contour, work.integrals
     geometry = _ContourGeometry(contour)
     size = geometry.size
@@ -438,7 +441,8 @@ def _metrics(work: _Work, max_samples: int, threads: int = 1):
     under = float(sizes[~(across >= RESOLVED_CELLS)].sum() / size)
     cells_across = weighted_quantile(np.nan_to_num(across, nan=1e30, posinf=1e30), sizes, 0.5)
     values, dist, known = integrals.at_points(dist)
-    measured = MeasuredDistances(np.where(known & np.isnan(dist), np.inf, dist), geometry, float(bound))
+    measured = (MeasuredDistances(np.where(known & np.isnan(dist), np.inf, dist), geometry, float(bound))
+                if distances else None)
     table = _profile_table(mesh, geometry, values, dist, known & np.isfinite(dist), width, max_samples)
     local = table["width"].to_numpy(dtype=float)
     w = table["weight"].to_numpy(dtype=float)

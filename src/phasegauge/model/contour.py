@@ -72,7 +72,13 @@ class Contour:
         """Element midpoints / centroids, shape (k, 3)."""
         if self.n_elements == 0:
             return np.zeros((0, 3))
-        return self.points[self.elements].mean(axis=1)
+        # the corners added in order, as the mean over them adds them (from 0: a -0.0 corner gives 0.0),
+        # without the (k, corners, 3) table
+        total = self.points[self.elements[:, 0]] + 0.0
+        for j in range(1, self.elements.shape[1]):
+            total += self.points[self.elements[:, j]]
+        total /= self.elements.shape[1]
+        return total
 
     @property
     def normals(self) -> np.ndarray:
