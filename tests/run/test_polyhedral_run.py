@@ -63,9 +63,10 @@ def test_polyhedra_measure_like_the_hexahedra(files, field):
         assert poly["interface_size"] == pytest.approx(hexa["interface_size"], rel=1e-12)
         for row in (poly, hexa):
             assert row["interface_size"] == pytest.approx(area, rel=0.06)
-        assert poly["interface_width"] == pytest.approx(hexa["interface_width"], rel=0.03)
-        # widths in cells count whole polyhedra, not their tetrahedra
-        assert poly["interface_width_cells"] == pytest.approx(hexa["interface_width_cells"], rel=0.03)
+        assert poly["interface_width"] == pytest.approx(hexa["interface_width"], rel=1e-4)
+        # widths in cells count whole polyhedra, not their tetrahedra (their sizes from the split's
+        # volumes, the hexahedra's trilinear: 1.4e-3 apart measured)
+        assert poly["interface_width_cells"] == pytest.approx(hexa["interface_width_cells"], rel=5e-3)
     exact = sum(_ball_volume(r) for r in RADII)
     assert poly["phase_volume"] == pytest.approx(exact, rel=0.01)
 
