@@ -133,7 +133,8 @@ def main(argv=None) -> None:
             print(f"{kind} {row['cells']} cells: measure / baseline {row['measure_s'] / row['baseline_s']:.2f} "
                   f"(cpu {row['measure_cpu'] / row['baseline_cpu']:.2f}), {row['us_per_cell_step']:.2f} us per "
                   f"cell-step, peak {row['peak_x_step']:.1f}x step ({time.perf_counter() - start:.0f} s)", flush=True)
-            shared = kind == "polyhedron" and "polyhedron-split" in kinds  # the split reads the same folder
+            shared = (kind == "polyhedron" and "polyhedron-split" in kinds  # the split reads the same folder
+                      and ("polyhedron-split", millions) not in skip)
             if not args.keep and not shared:  # a series' files are not needed once its row is measured
                 shutil.rmtree(sub, ignore_errors=True)
     print()

@@ -106,3 +106,60 @@ def test_a_series_recognises_its_cells_once(tmp_path, monkeypatch):
     assert len(calls) == 1 and steps[0].mesh is steps[2].mesh
     for k, step in enumerate(steps):
         np.testing.assert_allclose(step.fields.point_data["c"], step.mesh.points[:, 0] * (k + 1) / 3, atol=1e-14)
+
+
+@pytest.mark.parametrize("vtk_type", [25, 26, 27, 32])
+def test_quadratic_cells_beside_polyhedra_keep_their_corners(tmp_path, vtk_type):
+    # regression (found by review): a quadratic wedge (VTK 26, 32) or pyramid (27) beside polyhedra that
+    # are all ordinary cells was kept under meshio's quadratic name (refused) or in VTK's wedge order
+    # (inverted); its linear corners are kept, a wedge's in meshio's order. Volumes: elementary geometry.
+    from phasegauge.model.cells import FACES
+
+    cube = grid_mesh((1, 1, 1), kind="hexahedron")
+    faces = [[int(cube.blocks[0].connectivity[0][i]) for i in f] for f in FACES["hexahedron"]]
+    poly = [len(faces)] + [x for f in faces for x in (len(f), *f)]
+    if vtk_type == 25:  # hexahedron20
+        W = [(3, 0, 0), (4, 0, 0), (4, 1, 0), (3, 1, 0), (3, 0, 1), (4, 0, 1), (4, 1, 1), (3, 1, 1)]
+        edges = [(0, 1), (1, 2), (2, 3), (3, 0), (4, 5), (5, 6), (6, 7), (7, 4), (0, 4), (1, 5), (2, 6), (3, 7)]
+        volume = 1.0
+    elif vtk_type == 27:  # pyramid13
+        W = [(3, 0, 0), (4, 0, 0), (4, 1, 0), (3, 1, 0), (3.5, 0.5, 1)]
+        edges = [(0, 1), (1, 2), (2, 3), (3, 0), (0, 4), (1, 4), (2, 4), (3, 4)]
+        volume = 1 / 3
+    else:  # wedge15, wedge18 (VTK's order: the first triangle counter-clockwise from the second)
+        W = [(3, 0, 0), (4, 0, 0), (3, 1, 0), (3, 0, 1), (4, 0, 1), (3, 1, 1)]
+        edges = [(0, 1), (1, 2), (2, 0), (3, 4), (4, 5), (5, 3), (0, 3), (1, 4), (2, 5)]
+        volume = 0.5
+    W = np.array(W, float)
+    Q = np.vstack([W, [(W[a] + W[b]) / 2 for a, b in edges]])
+    if vtk_type == 32:  # wedge18: the three quad faces' centres too
+        Q = np.vstack([Q, [W[[0, 1, 4, 3]].mean(axis=0), W[[1, 2, 5, 4]].mean(axis=0), W[[2, 0, 3, 5]].mean(axis=0)]])
+    n0 = cube.n_points
+    cells = np.array([len(poly), *poly, len(Q), *range(n0, n0 + len(Q))])
+    path = str(tmp_path / "mixed.vtu")
+    pv.UnstructuredGrid(cells, np.array([42, vtk_type], np.uint8), np.vstack([cube.points, Q])).save(path)
+    read = Series(path).read(0).mesh
+    assert read.inverted_cells == 0 and np.all(read.signed_measures > 0)
+    np.testing.assert_allclose(np.sort(read.cell_measures), np.sort([1.0, volume]), rtol=1e-12)
+
+
+def test_faces_that_do_not_close_are_refused_with_recognition_on(tmp_path):
+    # the polyhedra's own checks still refuse what is no closed, consistently oriented surface
+    from phasegauge.errors import UnsupportedMeshError
+    from phasegauge.model.cells import FACES
+
+    mesh = grid_mesh((2, 1, 1), kind="hexahedron")
+    for how in ("open", "turned"):
+        stream = []
+        for k, row in enumerate(mesh.blocks[0].connectivity):
+            faces = [list(row[list(f)]) for f in FACES["hexahedron"]]
+            if k == 0 and how == "open":
+                faces = faces[1:]
+            if k == 0 and how == "turned":
+                faces[0] = faces[0][::-1]
+            cell = [len(faces)] + [x for f in faces for x in [len(f), *f]]
+            stream += [len(cell), *cell]
+        path = str(tmp_path / f"{how}.vtu")
+        pv.UnstructuredGrid(np.array(stream), np.full(2, 42, np.uint8), mesh.points).save(path)
+        with pytest.raises(UnsupportedMeshError, match="closed surface|outward"):
+            Series(path).read(0)

@@ -94,3 +94,31 @@ def test_face_lists_that_are_no_ordinary_cell_are_refused():
     cut = np.concatenate([[a, b, c, a, c, d], fp[4:]])
     offsets = np.concatenate([[0, 3], fo[1:] + 2])
     assert ordinary_shapes(points, cut, offsets, np.concatenate([[0], fc]), n) is None
+
+
+def test_strongly_warped_cells_come_back_with_positive_measure():
+    # regression (found by review): the orientation was told by a fan from one corner of each quad
+    # face, which on a strongly bent face can differ in sign from the bilinear face's volume that
+    # Mesh.signed_measures counts: some valid wedges came back inverted. Cells of random corners whose
+    # every corner Jacobian is positive (a valid trilinear map, the outside definition) are written as
+    # polyhedra, faces reversed at random, and must come back with positive measure.
+    rng = np.random.default_rng(7)
+    unit = {"hexahedron": [(0, 0, 0), (1, 0, 0), (1, 1, 0), (0, 1, 0), (0, 0, 1), (1, 0, 1), (1, 1, 1), (0, 1, 1)],
+            "wedge": [(0, 0, 0), (0, 1, 0), (1, 0, 0), (0, 0, 1), (0, 1, 1), (1, 0, 1)],  # meshio's order
+            "pyramid": [(0, 0, 0), (1, 0, 0), (1, 1, 0), (0, 1, 0), (0.5, 0.5, 1)]}
+    # each corner's three edge neighbours, right-handed in a cell of positive measure
+    around = {"hexahedron": [(1, 3, 4), (2, 0, 5), (3, 1, 6), (0, 2, 7), (7, 5, 0), (4, 6, 1), (5, 7, 2), (6, 4, 3)],
+              "wedge": [(2, 1, 3), (0, 2, 4), (1, 0, 5), (4, 5, 0), (5, 3, 1), (3, 4, 2)],
+              "pyramid": [(1, 3, 4), (2, 0, 4), (3, 1, 4), (0, 2, 4)]}
+    for name, corners in unit.items():
+        k, m = 3000, len(corners)
+        P = np.array(corners, float)[None] + 0.3 * rng.standard_normal((k, m, 3))
+        valid = np.ones(k, dtype=bool)
+        for c, (a, b, d) in enumerate(around[name]):
+            valid &= np.linalg.det(np.stack([P[:, a] - P[:, c], P[:, b] - P[:, c], P[:, d] - P[:, c]], axis=1)) > 0
+        P = P[valid]
+        conn = np.arange(P.shape[0] * m).reshape(-1, m)
+        assert np.all(Mesh(P.reshape(-1, 3), [(name, conn)]).signed_measures > 0)
+        blocks = ordinary_shapes(P.reshape(-1, 3), *_stream([(name, conn)], rng))
+        made = Mesh(P.reshape(-1, 3), [(name, blocks[0].connectivity)])
+        assert np.all(made.signed_measures > 0), name

@@ -180,9 +180,10 @@ def read_polyhedral(path: str):
             linear = LINEAR_CORNERS.get(str(name), (str(name), None))
             if linear[0] in _QUAD_FACED:
                 local = cells if linear[1] is None else cells[:, linear[1]]
-                order = vtk_common.vtk_to_meshio_order(int(t))  # a wedge's first triangle, as meshio reads it
-                streams.append((partial(cell_face_stream, linear[0], local), rows,
-                                (name, cells if order is None else cells[:, order])))
+                # kept whole (all polyhedra ordinary cells): the linear corners; a wedge's first triangle
+                # the other way round, as meshio reads VTK's wedges (found by review: VTK 26/27/32, quadratic)
+                whole = local[:, [0, 2, 1, 3, 5, 4]] if linear[0] == "wedge" else local
+                streams.append((partial(cell_face_stream, linear[0], local), rows, (linear[0], whole)))
                 continue
             blocks.append((name, cells))
             rows_of.append(rows)
@@ -349,8 +350,8 @@ class OrdinaryCells:
     Attributes
     ----------
     blocks : list of (str, ndarray, ndarray)
-        ``(cell type, connectivity, input rows)``: the hexahedra, wedges and pyramids of the file as
-        they are, then the polyhedra as the cells they are
+        ``(cell type, connectivity, input rows)``: the hexahedra, wedges and pyramids of the file (their
+        linear corners; a wedge's in meshio's order), then the polyhedra as the cells they are
         (:func:`~phasegauge.model._polyhedron_shapes.ordinary_shapes`).
     words : str
         How the polyhedra were read (``inspect`` shows it).

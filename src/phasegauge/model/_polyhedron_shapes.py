@@ -8,18 +8,22 @@ included. Such a cell is recognised from its faces alone, with no tolerance:
 * a base face is taken (the first face; a wedge's first triangle, a pyramid's quad), and each of
   its corners ``p_i`` is joined to the one corner ``q_i`` it shares an edge with outside the base
   (of the three edges leaving ``p_i`` in the faces' own direction, two run to the base's corners
-  beside it): the cell's corners in VTK order are the base and then the ``q_i`` (hexahedra,
-  wedges) or the one ``q`` (pyramids, tetrahedra);
+  beside it): the cell's corners are the base and then the ``q_i`` (hexahedra, wedges) or the
+  one ``q`` (pyramids, tetrahedra), in the mesh's corner order (VTK's; a wedge's meshio's, whose
+  first triangle runs the other way round);
 * the cell so made must have distinct corners and exactly the polyhedron's faces, loop for loop
   (each face the same cycle of corners, all in the listed direction or all reversed), so a face
   list that is not a closed, consistently oriented surface is never taken as an ordinary cell;
 * the corners are put in the order of positive measure (:attr:`phasegauge.model.mesh.Mesh.signed_measures`),
-  told by the sign of the volume the divergence theorem gives for the faces' fan triangles.
+  told by the sign of the divergence theorem's volume with each quad face bilinear (the mean of
+  its two diagonal cuts), the measure's own.
 
-A cell so read is the same solid as the polyhedron: the same corners, the same faces. What
-changes is how it is split where a split is needed (the ordinary cells' rule,
-:func:`phasegauge.model.simplices.split_cells`, against :func:`phasegauge.model.polyhedra.split_polyhedra`:
-the same tetrahedra wherever a quad face is bent, since both cut it along its shorter diagonal).
+A cell so read has the polyhedron's corners and faces. Where its quad faces are flat it is the
+same solid; where they are bent, its volume is the trilinear cell's, which differs from the
+polyhedron's split (its faces cut along their shorter diagonals) by O(bend) a cell, as a
+hexahedron's does: the numbers of a file read so are those of the same cells written as
+hexahedra, wedges, pyramids and tetrahedra. Where a split is needed (contours, sections) both
+rules cut a bent quad face along its shorter diagonal.
 """
 
 from __future__ import annotations
@@ -43,10 +47,10 @@ LOOPS = {**FACES, "tetra": ((0, 2, 1), (0, 1, 3), (1, 2, 3), (0, 3, 2))}
 #: order (gmsh's) has its loops turned inwards
 _LOOPS_SIGN = {"wedge": -1}
 
-#: corner orders that turn each cell over (the reverse orientation)
 #: cells recognised at a time (temporaries of a few MB)
 _CHUNK = 1 << 15
 
+#: corner orders that turn each cell over (the reverse orientation)
 _TURNED = {"tetra": (0, 2, 1, 3), "pyramid": (0, 3, 2, 1, 4), "wedge": (3, 4, 5, 0, 1, 2),
            "hexahedron": (4, 5, 6, 7, 0, 1, 2, 3)}
 
@@ -60,7 +64,7 @@ class ShapeBlock:
     cell_type : str
         ``"tetra"``, ``"pyramid"``, ``"wedge"`` or ``"hexahedron"``.
     connectivity : ndarray of shape (k, corners), int64
-        Corner point ids in VTK order, positively oriented.
+        Corner point ids in the mesh's order (VTK's; a wedge's meshio's), positive measure.
     cells : ndarray of shape (k,), int64
         Which polyhedra (0 to ``n_cells - 1`` of the face stream) they are, increasing.
     """
@@ -126,8 +130,8 @@ def ordinary_shapes(points, face_points, face_offsets, face_cell, n_cells: int) 
 
 
 def _shape_cells(X, face_points, face_offsets, first, n_faces: int, base_size: int, from_q: int, name: str):
-    """Corner lists (VTK order, positive volume) of cells of one face signature, or None when any
-    one is not the cell ``name``."""
+    """Corner lists (positive measure) of cells of one face signature, or None when any one is
+    not the cell ``name``."""
     k = first.size
     faces = first[:, None] + np.arange(n_faces)  # (k, F) face numbers
     starts = face_offsets[faces]
@@ -198,18 +202,27 @@ def _own_number(face) -> int:
 
 
 def _signed_volumes(X, conn, name: str) -> np.ndarray:
-    """Six times the volume of each cell bounded by its faces' fan triangles (divergence theorem),
-    about its first corner."""
+    """Six times each cell's volume by the divergence theorem, about its first corner: a quad face
+    counted as the mean of its two diagonal cuts, which is the bilinear face's (so the sign is that of
+    :attr:`phasegauge.model.mesh.Mesh.signed_measures` on bent faces too: found by review, a fan from
+    one corner turned some strongly warped wedges over)."""
     rel = X[conn[:, 1:]] - X[conn[:, :1]]  # corners 1.. about corner 0 (corner 0 is the origin)
     rel = np.concatenate([np.zeros((conn.shape[0], 1, 3)), rel], axis=1)
     x, y, z = rel[..., 0], rel[..., 1], rel[..., 2]
     volume = np.zeros(conn.shape[0])
+
+    def add(a, b, c, weight):
+        if 0 in (a, b, c):
+            return  # a triangle through the origin adds nothing
+        volume[:] += weight * (x[:, a] * (y[:, b] * z[:, c] - z[:, b] * y[:, c])
+                               + y[:, a] * (z[:, b] * x[:, c] - x[:, b] * z[:, c])
+                               + z[:, a] * (x[:, b] * y[:, c] - y[:, b] * x[:, c]))
+
     for face in LOOPS[name]:
-        a = face[0]
-        for b, c in zip(face[1:-1], face[2:]):
-            if 0 in (a, b, c):
-                continue  # a triangle through the origin adds nothing
-            volume += (x[:, a] * (y[:, b] * z[:, c] - z[:, b] * y[:, c])
-                       + y[:, a] * (z[:, b] * x[:, c] - x[:, b] * z[:, c])
-                       + z[:, a] * (x[:, b] * y[:, c] - y[:, b] * x[:, c]))
+        if len(face) == 3:
+            add(*face, 1.0)
+        else:
+            a, b, c, d = face
+            for tri in ((a, b, c), (a, c, d), (b, c, d), (b, d, a)):
+                add(*tri, 0.5)
     return volume
