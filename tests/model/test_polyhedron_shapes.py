@@ -122,3 +122,23 @@ def test_strongly_warped_cells_come_back_with_positive_measure():
         blocks = ordinary_shapes(P.reshape(-1, 3), *_stream([(name, conn)], rng))
         made = Mesh(P.reshape(-1, 3), [(name, blocks[0].connectivity)])
         assert np.all(made.signed_measures > 0), name
+
+
+def test_the_bilinear_quads_volume_is_the_mean_of_its_two_diagonal_cuts():
+    # the identity _signed_volumes counts a quad face by, against the triangles of both cuts
+    # (divergence theorem over a triangulated surface, elementary) and Mesh.signed_measures
+    from phasegauge.model._polyhedron_shapes import _signed_volumes
+
+    rng = np.random.default_rng(2)
+    unit = np.array([(0, 0, 0), (1, 0, 0), (1, 1, 0), (0, 1, 0), (0, 0, 1), (1, 0, 1), (1, 1, 1), (0, 1, 1)], float)
+    X = (unit[None] + 0.25 * rng.standard_normal((500, 8, 3))).reshape(-1, 3)
+    conn = np.arange(X.shape[0]).reshape(-1, 8)
+    P = X[conn]
+
+    def triple(a, b, c):
+        return np.einsum("ij,ij->i", P[:, a], np.cross(P[:, b], P[:, c]))
+
+    both_cuts = sum(0.5 * (triple(a, b, c) + triple(a, c, d) + triple(b, c, d) + triple(b, d, a))
+                    for a, b, c, d in LOOPS["hexahedron"])
+    np.testing.assert_allclose(_signed_volumes(X, conn, "hexahedron"), both_cuts, rtol=1e-10, atol=1e-12)
+    np.testing.assert_allclose(both_cuts / 6, Mesh(X, [("hexahedron", conn)]).signed_measures, rtol=1e-10, atol=1e-12)

@@ -137,9 +137,13 @@ def _shape_cells(X, face_points, face_offsets, first, n_faces: int, base_size: i
     starts = face_offsets[faces]
     fsize = face_offsets[faces + 1] - starts
     slot = np.arange(4)
-    valid = slot < fsize[..., None]  # (k, F, 4)
-    loops = np.where(valid, face_points[starts[..., None] + np.minimum(slot, fsize[..., None] - 1)], -1)
-    ends = np.where(slot + 1 < fsize[..., None], np.roll(loops, -1, axis=2), loops[..., :1])  # the next corners
+    if name == "hexahedron":  # every face of 4 corners, a cell's corners one run of the stream
+        loops = face_points[starts[:, :1] + np.arange(4 * n_faces)].reshape(k, n_faces, 4)
+        ends = np.roll(loops, -1, axis=2)
+    else:  # (k, F, 4), triangles' fourth corner -1
+        valid = slot < fsize[..., None]
+        loops = np.where(valid, face_points[starts[..., None] + np.minimum(slot, fsize[..., None] - 1)], -1)
+        ends = np.where(slot + 1 < fsize[..., None], np.roll(loops, -1, axis=2), loops[..., :1])  # the next corners
     base = np.argmax(fsize == base_size, axis=1)
     p = loops[np.arange(k), base, :base_size]
     starts_flat, ends_flat = loops.reshape(k, -1), ends.reshape(k, -1)
@@ -202,27 +206,26 @@ def _own_number(face) -> int:
 
 
 def _signed_volumes(X, conn, name: str) -> np.ndarray:
-    """Six times each cell's volume by the divergence theorem, about its first corner: a quad face
-    counted as the mean of its two diagonal cuts, which is the bilinear face's (so the sign is that of
-    :attr:`phasegauge.model.mesh.Mesh.signed_measures` on bent faces too: found by review, a fan from
-    one corner turned some strongly warped wedges over)."""
-    rel = X[conn[:, 1:]] - X[conn[:, :1]]  # corners 1.. about corner 0 (corner 0 is the origin)
-    rel = np.concatenate([np.zeros((conn.shape[0], 1, 3)), rel], axis=1)
-    x, y, z = rel[..., 0], rel[..., 1], rel[..., 2]
+    """Six times each cell's volume by the divergence theorem, about its first corner, each quad face
+    bilinear, so the sign is that of :attr:`phasegauge.model.mesh.Mesh.signed_measures` on bent faces
+    too (found by review: a fan from one corner turned some strongly warped wedges over).
+
+    A bilinear quad (a, b, c, d) adds (a + b + c + d) . ((c - a) x (d - b)) / 4, the mean of its two
+    diagonal cuts' triangles (the identity is checked in ``tests/model/test_polyhedron_shapes.py``).
+    """
+    origin = X[conn[:, 0]]
+    x, y, z = ([X[conn[:, j], i] - origin[:, i] for j in range(conn.shape[1])] for i in range(3))  # about corner 0
     volume = np.zeros(conn.shape[0])
-
-    def add(a, b, c, weight):
-        if 0 in (a, b, c):
-            return  # a triangle through the origin adds nothing
-        volume[:] += weight * (x[:, a] * (y[:, b] * z[:, c] - z[:, b] * y[:, c])
-                               + y[:, a] * (z[:, b] * x[:, c] - x[:, b] * z[:, c])
-                               + z[:, a] * (x[:, b] * y[:, c] - y[:, b] * x[:, c]))
-
     for face in LOOPS[name]:
         if len(face) == 3:
-            add(*face, 1.0)
+            a, b, c = face
+            ux, uy, uz, wx, wy, wz, sx, sy, sz = x[b], y[b], z[b], x[c], y[c], z[c], x[a], y[a], z[a]
+            weight = 1.0
         else:
             a, b, c, d = face
-            for tri in ((a, b, c), (a, c, d), (b, c, d), (b, d, a)):
-                add(*tri, 0.5)
+            ux, uy, uz = x[c] - x[a], y[c] - y[a], z[c] - z[a]
+            wx, wy, wz = x[d] - x[b], y[d] - y[b], z[d] - z[b]
+            sx, sy, sz = x[a] + x[b] + x[c] + x[d], y[a] + y[b] + y[c] + y[d], z[a] + z[b] + z[c] + z[d]
+            weight = 0.25
+        volume += weight * (sx * (uy * wz - uz * wy) + sy * (uz * wx - ux * wz) + sz * (ux * wy - uy * wx))
     return volume
