@@ -90,20 +90,28 @@ def test_one_polyhedron_of_another_shape_splits_them_all(tmp_path):
     np.testing.assert_allclose(read.total_measure, mesh.total_measure, rtol=1e-12)
 
 
-def test_a_series_recognises_its_cells_once(tmp_path, monkeypatch):
-    from phasegauge.model import _polyhedron_shapes
+@pytest.mark.parametrize("read_as", ["hexahedra", "split"])
+def test_a_series_reads_its_polyhedra_once(tmp_path, monkeypatch, read_as):
+    # the recognition (or, polyhedra of other shapes, the split) is made for the first step and taken
+    # from the pooled mesh for the others: the same mesh object, each step's own point values
+    from phasegauge.io import _polyhedra
+    from phasegauge.model import _polyhedron_shapes, polyhedra
 
     mesh = grid_mesh((3, 3, 3), kind="hexahedron", jitter=0.2, seed=6)
     grid = to_polyhedral_grid(mesh)
     for k in range(3):
         grid.point_data["c"] = mesh.points[:, 0] * (k + 1) / 3
         grid.save(str(tmp_path / f"step_{k}.vtu"))
-    calls = []
-    original = _polyhedron_shapes.ordinary_shapes
-    monkeypatch.setattr(_polyhedron_shapes, "ordinary_shapes", lambda *a: calls.append(1) or original(*a))
+    if read_as == "split":
+        monkeypatch.setattr(_polyhedra, "_ordinary_cells", lambda points, made: None)  # (conftest's fixture)
+    module, name = (polyhedra, "split_polyhedra") if read_as == "split" else (_polyhedron_shapes, "ordinary_shapes")
+    calls, original = [], getattr(module, name)
+    monkeypatch.setattr(module, name, lambda *a, **k: calls.append(1) or original(*a, **k))
     series = Series(str(tmp_path))
     steps = [series.read(k) for k in range(3)]
     assert len(calls) == 1 and steps[0].mesh is steps[2].mesh
+    assert set(steps[0].mesh.cell_type_counts) == ({"tetra"} if read_as == "split" else {"hexahedron"})
+    # each step's own point values (the split's centres as their corners' means: a linear field, exact)
     for k, step in enumerate(steps):
         np.testing.assert_allclose(step.fields.point_data["c"], step.mesh.points[:, 0] * (k + 1) / 3, atol=1e-14)
 

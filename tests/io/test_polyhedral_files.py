@@ -195,22 +195,3 @@ def test_bad_polyhedra_are_refused_naming_the_file(tmp_path, damage, match):
     text = str(err.value)
     assert "bad.vtu" in text and "closed surface" in text and "\n" not in text
     assert "the first: cell 1)" in text  # the file's cell number
-
-
-def test_a_series_splits_its_polyhedra_once(tmp_path, monkeypatch):
-    import phasegauge.model.polyhedra as polyhedra
-
-    m = grid_mesh((3, 3, 3), kind="hexahedron", jitter=0.2, seed=6)
-    grid = to_polyhedral_grid(m)
-    for k in range(3):
-        grid.point_data["c"] = m.points[:, 0] * (k + 1) / 3
-        grid.save(str(tmp_path / f"step_{k}.vtu"))
-    calls = []
-    original = polyhedra.split_polyhedra
-    monkeypatch.setattr(polyhedra, "split_polyhedra", lambda *a, **k: calls.append(1) or original(*a, **k))
-    series = Series(str(tmp_path))
-    steps = [series.read(k) for k in range(3)]
-    assert len(calls) == 1 and steps[0].mesh is steps[2].mesh
-    # each step's own point values, the centres' as their corners' means (a linear field: exact)
-    for k, step in enumerate(steps):
-        np.testing.assert_allclose(step.fields.point_data["c"], step.mesh.points[:, 0] * (k + 1) / 3, atol=1e-14)
