@@ -205,6 +205,10 @@ def meshio_reader(fmt: str):
     return meshio._helpers.reader_map[fmt]
 
 
+#: meshio's names of cells its reader knows but its meshes cannot hold (found by review: a KeyError)
+_CELLS_MESHIO_CANNOT_HOLD = {"wedge15": "quadratic wedges", "wedge18": "quadratic wedges",
+                             "pyramid13": "quadratic pyramids", "pyramid14": "quadratic pyramids"}
+
 _STOPPED = "the solver may have stopped while writing it: write the step again or remove it from the series"
 _SURFACE_FILE = "holds a surface ({kind}, such as a boundary patch), not a volume mesh"
 _SURFACE_FIX = ("give the step's volume (internal) mesh: solver converters write it beside the boundary "
@@ -221,6 +225,10 @@ def diagnose_read_failure(path: str, fmt: str, exc: BaseException):
     hdf5 = hdf5_problem(exc, path)
     if hdf5 is not None:
         return hdf5
+    if isinstance(exc, KeyError) and exc.args and str(exc.args[0]) in _CELLS_MESHIO_CANNOT_HOLD:
+        return UnsupportedMeshError(f"holds {_CELLS_MESHIO_CANNOT_HOLD[str(exc.args[0])]} ({exc.args[0]}), which "
+                                    "meshio cannot read", where=path,
+                                    fix="write the mesh with linear cells (wedges, pyramids)")
     with open(path, "rb") as handle:
         head = handle.read(512)
     start = _printable_start(head)
