@@ -20,6 +20,7 @@ import io
 import os
 import warnings
 from dataclasses import dataclass, field
+from types import MappingProxyType
 
 import numpy as np
 
@@ -206,8 +207,8 @@ def meshio_reader(fmt: str):
 
 
 #: meshio's names of cells its reader knows but its meshes cannot hold (found by review: a KeyError)
-_CELLS_MESHIO_CANNOT_HOLD = {"wedge15": "quadratic wedges", "wedge18": "quadratic wedges",
-                             "pyramid13": "quadratic pyramids", "pyramid14": "quadratic pyramids"}
+_CELLS_MESHIO_CANNOT_HOLD = MappingProxyType({"wedge15": "quadratic wedges", "wedge18": "quadratic wedges",
+                                              "pyramid13": "quadratic pyramids", "pyramid14": "quadratic pyramids"})
 
 _STOPPED = "the solver may have stopped while writing it: write the step again or remove it from the series"
 _SURFACE_FILE = "holds a surface ({kind}, such as a boundary patch), not a volume mesh"

@@ -29,6 +29,7 @@ rules cut a bent quad face along its shorter diagonal.
 from __future__ import annotations
 
 from dataclasses import dataclass
+from types import MappingProxyType
 
 import numpy as np
 
@@ -37,22 +38,23 @@ from .cells import FACES
 __all__ = ["ShapeBlock", "ordinary_shapes", "LOOPS"]
 
 #: (triangles, quads) of each ordinary cell's faces -> VTK type name, base face size, corners from ``q``
-_SHAPES = {(4, 0): ("tetra", 3, 1), (4, 1): ("pyramid", 4, 1), (2, 3): ("wedge", 3, 3), (0, 6): ("hexahedron", 4, 4)}
+_SHAPES = MappingProxyType({(4, 0): ("tetra", 3, 1), (4, 1): ("pyramid", 4, 1), (2, 3): ("wedge", 3, 3),
+                           (0, 6): ("hexahedron", 4, 4)})
 
 #: each cell type's faces as loops that run one way round the surface (every edge once each way):
 #: :data:`.cells.FACES`, whose tetrahedron lists corner sets only, with the tetrahedron's loops turned
-LOOPS = {**FACES, "tetra": ((0, 2, 1), (0, 1, 3), (1, 2, 3), (0, 3, 2))}
+LOOPS = MappingProxyType({**FACES, "tetra": ((0, 2, 1), (0, 1, 3), (1, 2, 3), (0, 3, 2))})
 
 #: the sign of the volume of :data:`LOOPS` for a cell of positive measure: a wedge in meshio's corner
 #: order (gmsh's) has its loops turned inwards
-_LOOPS_SIGN = {"wedge": -1}
+_LOOPS_SIGN = MappingProxyType({"wedge": -1})
 
 #: cells recognised at a time (temporaries of a few MB)
 _CHUNK = 1 << 15
 
 #: corner orders that turn each cell over (the reverse orientation)
-_TURNED = {"tetra": (0, 2, 1, 3), "pyramid": (0, 3, 2, 1, 4), "wedge": (3, 4, 5, 0, 1, 2),
-           "hexahedron": (4, 5, 6, 7, 0, 1, 2, 3)}
+_TURNED = MappingProxyType({"tetra": (0, 2, 1, 3), "pyramid": (0, 3, 2, 1, 4), "wedge": (3, 4, 5, 0, 1, 2),
+                           "hexahedron": (4, 5, 6, 7, 0, 1, 2, 3)})
 
 
 @dataclass(frozen=True)
