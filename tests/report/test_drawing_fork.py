@@ -238,13 +238,15 @@ def test_an_interrupt_as_the_fork_is_made_leaves_no_process_behind(tmp_path, mon
         pid = fork()
         if pid:
             pids.append(pid)
-            # the interrupt, as the fork returns here, sent to this thread: sent to the process, any
-            # thread that does not hold it back (a library's own, which threading does not count)
-            # may take it (the test failed once in CI so)
+            # the interrupt, as the fork returns here, sent to this thread (sent to the process, any
+            # thread that does not hold it back, a library's own that threading does not count, may take it)
             signal.pthread_kill(threading.get_ident(), signal.SIGINT)
         return pid
 
     monkeypatch.setattr(os, "fork", interrupted)
+    # Ctrl-C as Python sets it up: a program started in the background of a shell (as a CI script may
+    # be) starts with SIGINT ignored, and Python then leaves it ignored (the test failed so in CI)
+    handler = signal.signal(signal.SIGINT, signal.default_int_handler)
     try:
         with pytest.raises(KeyboardInterrupt):
             save_figure_makers(str(tmp_path), _makers(), [], fork=True)
@@ -253,6 +255,7 @@ def test_an_interrupt_as_the_fork_is_made_leaves_no_process_behind(tmp_path, mon
     finally:
         _end(pids)
         after = signal.pthread_sigmask(signal.SIG_SETMASK, before)  # no held signal left to later tests
+        signal.signal(signal.SIGINT, handler)
     assert after == before
 
 
