@@ -20,7 +20,6 @@ import io
 import os
 import warnings
 from dataclasses import dataclass, field
-from types import MappingProxyType
 
 import numpy as np
 
@@ -206,9 +205,13 @@ def meshio_reader(fmt: str):
     return meshio._helpers.reader_map[fmt]
 
 
-#: meshio's names of cells its reader knows but its meshes cannot hold (found by review: a KeyError)
-_CELLS_MESHIO_CANNOT_HOLD = MappingProxyType({"wedge15": "quadratic wedges", "wedge18": "quadratic wedges",
-                                              "pyramid13": "quadratic pyramids", "pyramid14": "quadratic pyramids"})
+def _cell_type_refused(exc: BaseException) -> str | None:
+    """The cell type meshio's reader named but its mesh refused (a KeyError such as 'wedge15'), else None."""
+    from meshio._vtk_common import vtk_to_meshio_type
+
+    named = isinstance(exc, KeyError) and exc.args and isinstance(exc.args[0], str)
+    return exc.args[0] if named and exc.args[0] in vtk_to_meshio_type.values() else None
+
 
 _STOPPED = "the solver may have stopped while writing it: write the step again or remove it from the series"
 _SURFACE_FILE = "holds a surface ({kind}, such as a boundary patch), not a volume mesh"
@@ -226,10 +229,10 @@ def diagnose_read_failure(path: str, fmt: str, exc: BaseException):
     hdf5 = hdf5_problem(exc, path)
     if hdf5 is not None:
         return hdf5
-    if isinstance(exc, KeyError) and exc.args and str(exc.args[0]) in _CELLS_MESHIO_CANNOT_HOLD:
-        return UnsupportedMeshError(f"holds {_CELLS_MESHIO_CANNOT_HOLD[str(exc.args[0])]} ({exc.args[0]}), which "
-                                    "meshio cannot read", where=path,
-                                    fix="write the mesh with linear cells (wedges, pyramids)")
+    cell = _cell_type_refused(exc)
+    if cell is not None:
+        return UnsupportedMeshError(f"holds cells of type {cell}, which meshio's reader names but cannot hold",
+                                    where=path, fix="write the mesh with linear cells")
     with open(path, "rb") as handle:
         head = handle.read(512)
     start = _printable_start(head)

@@ -135,7 +135,8 @@ def _polyhedron_faces(face_arrays: tuple, cells: np.ndarray):
     from VTK's face arrays (:func:`_face_arrays`)."""
     face_conn, face_offs, loc_conn, loc_offs = face_arrays
     per_cell = np.diff(loc_offs)[cells]
-    every = cells.size == loc_offs.size - 1  # every cell a polyhedron (``cells`` increasing): all their faces
+    # every cell a polyhedron (``cells`` increasing), their face list whole: all of it
+    every = cells.size == loc_offs.size - 1 and loc_offs[0] == 0 and loc_conn.size == loc_offs[-1]
     face_ids = loc_conn if every else loc_conn[ranges(loc_offs, cells)]
     if face_ids.size == face_offs.size - 1 and face_ids.size and face_ids[0] == 0 and np.all(np.diff(face_ids) == 1):
         # every face of the file, in order (the usual layout): VTK's own arrays are the stream

@@ -167,9 +167,14 @@ def _draw_split(out: str, makers, theirs: list, plot_format: str, pngs: list) ->
         gc.freeze()
     read_end, write_end = os.pipe()
     parent = os.getpid()
+    # Ctrl-C or SIGTERM waits while the fork is made: an interrupt raised as os.fork returns would
+    # lose the fork's pid (a fork left running), or leave the fork in this program's code. This
+    # thread holds them back (the signal mask), and Python's handlers only note them meanwhile: a
+    # signal sent to the process may be taken by another thread (a library's own, which threading
+    # does not count), whose handler Python runs here, in the main thread (found by review)
+    noted = []
+    handlers = _note_interrupts(noted)
     try:
-        # Ctrl-C or SIGTERM waits while the fork is made: an interrupt raised as os.fork returns
-        # would lose the fork's pid (a fork left running), or leave the fork in this program's code
         _block_interrupts()
         pid = os.fork()
     except BaseException:
@@ -178,11 +183,13 @@ def _draw_split(out: str, makers, theirs: list, plot_format: str, pngs: list) ->
             gc.unfreeze()
         os.close(read_end)
         os.close(write_end)
+        _put_back(handlers, noted)
         raise
     if pid == 0:  # the fork: draw, send, leave without running this process's exit handlers
         status = 1
         try:
-            _set_signal_mask(held)  # an interrupt ends the fork from here on
+            _put_back(handlers, [])  # an interrupt ends the fork from here on (one noted before is the parent's)
+            _set_signal_mask(held)
             _die_with_parent(parent)
             os.close(read_end)
             _send(write_end, _draw_all(out, makers, theirs, plot_format))
@@ -193,11 +200,14 @@ def _draw_split(out: str, makers, theirs: list, plot_format: str, pngs: list) ->
     try:
         os.close(write_end)
         _set_signal_mask(held)  # an interrupt from here on stops the fork (below)
+        _put_back(handlers, noted)  # (one noted meanwhile is raised here)
         for index in range(len(makers)):
             if index not in theirs:
                 pngs[index] = _draw(out, makers[index], plot_format)
         received = _receive(read_end)
     finally:
+        _set_signal_mask(held)  # (lifted above, unless an interrupt came first)
+        _put_back(handlers, [])
         os.close(read_end)
         if received is None:  # leaving on an error here: the fork's figures are not wanted
             _stop(pid)
@@ -294,6 +304,35 @@ def _block_interrupts() -> None:
 
     if hasattr(signal, "pthread_sigmask"):
         signal.pthread_sigmask(signal.SIG_BLOCK, {signal.SIGINT, signal.SIGTERM})
+
+
+def _note_interrupts(noted: list):
+    """Python's SIGINT and SIGTERM handlers replaced by ones that append the signal to ``noted``;
+    the handlers replaced (None off the main thread, where Python sets no handler)."""
+    import signal
+    import threading
+
+    if threading.current_thread() is not threading.main_thread():
+        return None
+    handlers = {}
+    for number in (signal.SIGINT, signal.SIGTERM):
+        handler = signal.getsignal(number)
+        if callable(handler):  # (an ignored or default signal stays so: Python runs nothing for it)
+            handlers[number] = signal.signal(number, lambda signum, frame: noted.append(signum))
+    return handlers
+
+
+def _put_back(handlers, noted: list) -> None:
+    """Put back the handlers :func:`_note_interrupts` replaced (once), then raise the first signal noted
+    meanwhile as its handler would have (Ctrl-C's KeyboardInterrupt)."""
+    import signal
+
+    while handlers:
+        number, handler = handlers.popitem()
+        signal.signal(number, handler)
+    if noted:
+        signal.raise_signal(noted.pop(0))
+        noted.clear()
 
 
 def _set_signal_mask(mask) -> None:
