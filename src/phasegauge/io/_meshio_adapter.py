@@ -26,6 +26,7 @@ import numpy as np
 from ..errors import (FieldShapeError, InputFileNotFound, MeshWarning, UnreadableFileError,
                       UnsupportedMeshError, short_text)
 from ..model.mesh import Mesh
+from ._cells_refused import cell_type_refused, check_cells_left_out
 
 __all__ = ["StepFields", "read_with_meshio", "new_mesh", "XdmfTimeSeries", "mesh_and_fields", "step_fields",
            "diagnose_read_failure", "hdf5_problem"]
@@ -174,7 +175,8 @@ def read_with_meshio(path: str, fmt: str, *, fallback=None):
     ensure_vtk_extras()
     try:
         # the reader is called directly: meshio.read() ends the process on a read error
-        with warnings.catch_warnings(), contextlib.redirect_stdout(io.StringIO()):
+        printed = io.StringIO()
+        with warnings.catch_warnings(), contextlib.redirect_stdout(printed), contextlib.redirect_stderr(printed):
             warnings.simplefilter("ignore")
             raw = meshio_reader(fmt)(path)
     except MemoryError as exc:  # a size the header checks did not catch
@@ -187,6 +189,7 @@ def read_with_meshio(path: str, fmt: str, *, fallback=None):
             if raw is not None:
                 return raw
         raise diagnose_read_failure(path, fmt, exc) from None
+    check_cells_left_out(printed.getvalue(), path)
     return convex_point_sets(raw)
 
 
@@ -205,14 +208,6 @@ def meshio_reader(fmt: str):
     return meshio._helpers.reader_map[fmt]
 
 
-def _cell_type_refused(exc: BaseException) -> str | None:
-    """The cell type meshio's reader named but its mesh refused (a KeyError such as 'wedge15'), else None."""
-    from meshio._vtk_common import vtk_to_meshio_type
-
-    named = isinstance(exc, KeyError) and exc.args and isinstance(exc.args[0], str)
-    return exc.args[0] if named and exc.args[0] in vtk_to_meshio_type.values() else None
-
-
 _STOPPED = "the solver may have stopped while writing it: write the step again or remove it from the series"
 _SURFACE_FILE = "holds a surface ({kind}, such as a boundary patch), not a volume mesh"
 _SURFACE_FIX = ("give the step's volume (internal) mesh: solver converters write it beside the boundary "
@@ -229,10 +224,9 @@ def diagnose_read_failure(path: str, fmt: str, exc: BaseException):
     hdf5 = hdf5_problem(exc, path)
     if hdf5 is not None:
         return hdf5
-    cell = _cell_type_refused(exc)
-    if cell is not None:
-        return UnsupportedMeshError(f"holds cells of type {cell}, which meshio's reader names but cannot hold",
-                                    where=path, fix="write the mesh with linear cells")
+    refused = cell_type_refused(exc, path)
+    if refused is not None:
+        return refused
     with open(path, "rb") as handle:
         head = handle.read(512)
     start = _printable_start(head)
