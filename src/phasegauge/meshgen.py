@@ -199,12 +199,12 @@ def to_polyhedral_grid(mesh: Mesh, *, point_data=None, cell_data=None, reverse: 
     """
     import pyvista
 
-    from .model._polyhedron_shapes import LOOPS as FACES
+    from .model._polyhedron_shapes import LOOPS
 
     parts = []
     for block in mesh.blocks:
         conn = block.connectivity
-        faces = FACES[block.cell_type]
+        faces = LOOPS[block.cell_type]
         columns = [np.full(len(block), sum(len(f) + 1 for f in faces) + 1), np.full(len(block), len(faces))]
         for face in faces:
             face = face[::-1] if reverse else face

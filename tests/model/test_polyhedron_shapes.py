@@ -125,8 +125,8 @@ def test_strongly_warped_cells_come_back_with_positive_measure():
 
 
 def test_the_bilinear_quads_volume_is_the_mean_of_its_two_diagonal_cuts():
-    # the identity _signed_volumes counts a quad face by, against the triangles of both cuts
-    # (divergence theorem over a triangulated surface, elementary) and Mesh.signed_measures
+    # the orientation's volume (the mesh's own, quad faces bilinear) against the triangles of both
+    # diagonal cuts of every face (divergence theorem over a triangulated surface, elementary)
     from phasegauge.model._polyhedron_shapes import _signed_volumes
 
     rng = np.random.default_rng(2)

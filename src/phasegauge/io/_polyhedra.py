@@ -268,10 +268,13 @@ class PolyhedralRead:
             self.signature  # noqa: B018  (hashed from the arrays, not the streams)
             # convex point sets beside them centre every hull face of 4+ corners: so do the polyhedra's quads
             convex = any(isinstance(name, type(CONVEX_POINT_SET)) for name, _ in self._blocks)
-            made = [(make(), rows, block) for make, rows, block in self._streams]
+            # the polyhedra's face streams first: the file's own hexahedra, wedges and pyramids need theirs
+            # only if the cells are split
+            made = [(make() if block is None else make, rows, block) for make, rows, block in self._streams]
             self._split = None if convex else _ordinary_cells(self._points, made)
             if self._split is None:
-                face_points, face_offsets, face_cell = _join_streams([(stream, rows) for stream, rows, _ in made])
+                face_points, face_offsets, face_cell = _join_streams(
+                    [(stream if block is None else stream(), rows) for stream, rows, block in made])
                 del made
                 self._split = split_polyhedra(self._points, face_points, face_offsets, face_cell, self._rows.size,
                                               where=self.path, cell_ids=self._rows, diagonals=not convex)
@@ -309,10 +312,10 @@ class PolyhedralRead:
             # the split's own copy (same points: the signature matched), shared by the steps
             points = split.points if split.points is not None else np.concatenate([points,
                                                                                     split.centre_values(points)])
-        numeric = {name: values for name, values in self._cell_data.items() if np.issubdtype(values.dtype, np.number)}
-        rows_of = self._rows_of + [rows[split.source]] if numeric else []  # 8 bytes a tetrahedron: only if used
-        cell_data = {name: [values[r] for r in rows_of] for name, values in numeric.items()}
-        raw = new_mesh(points, blocks, point_data=point_data, cell_data=cell_data, field_data=self.field_data)
+        # 8 bytes a tetrahedron: only if used
+        rows_of = self._rows_of + [rows[split.source]] if self._numeric_cell_data() else []
+        raw = new_mesh(points, blocks, point_data=point_data, cell_data=self._cell_data_of(rows_of),
+                       field_data=self.field_data)
         note = None
         if any(isinstance(name, type(CONVEX_POINT_SET)) for name, _ in blocks):
             # convex cells split about their faces share the polyhedra's face centres
@@ -332,17 +335,21 @@ class PolyhedralRead:
         raw.convex_point_sets = words if not note else f"{words}; {note}"
         return raw
 
-
     def _ordinary_raw(self, ordinary: "OrdinaryCells"):
         """The file as read when its polyhedra are ordinary cells: no split, no added points."""
         blocks = self._blocks + [(name, cells) for name, cells, _ in ordinary.blocks]
         rows_of = self._rows_of + [rows for _, _, rows in ordinary.blocks]
-        numeric = {name: values for name, values in self._cell_data.items() if np.issubdtype(values.dtype, np.number)}
-        cell_data = {name: [values[r] for r in rows_of] for name, values in numeric.items()}
-        raw = new_mesh(self._points, blocks, point_data=self._point_data, cell_data=cell_data,
+        raw = new_mesh(self._points, blocks, point_data=self._point_data, cell_data=self._cell_data_of(rows_of),
                        field_data=self.field_data)
         raw.convex_point_sets = ordinary.words
         return raw
+
+    def _numeric_cell_data(self) -> dict:
+        return {name: values for name, values in self._cell_data.items() if np.issubdtype(values.dtype, np.number)}
+
+    def _cell_data_of(self, rows_of: list) -> dict:
+        """The numeric cell fields per block, block ``k`` taking the input rows ``rows_of[k]``."""
+        return {name: [values[r] for r in rows_of] for name, values in self._numeric_cell_data().items()}
 
 
 @dataclass(frozen=True, eq=False)
@@ -364,16 +371,17 @@ class OrdinaryCells:
 
 
 def _ordinary_cells(points, made: list) -> OrdinaryCells | None:
-    """The file's split cells as ordinary cells when every polyhedron is one (``made``: face stream,
-    input rows and, for the file's own hexahedra, wedges and pyramids, their block), else None."""
+    """The file's split cells as ordinary cells when every polyhedron is one (``made``: per part, the
+    polyhedra's face stream or, for the file's own hexahedra, wedges and pyramids, anything; the input
+    rows; None or those cells' block), else None."""
     from ..model._polyhedron_shapes import ordinary_shapes
 
     blocks, counts = [], {}
-    for (face_points, face_offsets, face_cell), rows, block in made:
+    for stream, rows, block in made:
         if block is not None:
             blocks.append((block[0], block[1], rows))
             continue
-        shapes = ordinary_shapes(points, face_points, face_offsets, face_cell, rows.size)
+        shapes = ordinary_shapes(points, *stream, rows.size)
         if shapes is None:
             return None
         for shape in shapes:

@@ -14,9 +14,8 @@ included. Such a cell is recognised from its faces alone, with no tolerance:
 * the cell so made must have distinct corners and exactly the polyhedron's faces, loop for loop
   (each face the same cycle of corners, all in the listed direction or all reversed), so a face
   list that is not a closed, consistently oriented surface is never taken as an ordinary cell;
-* the corners are put in the order of positive measure (:attr:`phasegauge.model.mesh.Mesh.signed_measures`),
-  told by the sign of the divergence theorem's volume with each quad face bilinear (the mean of
-  its two diagonal cuts), the measure's own.
+* the corners are put in the order of positive measure, the mesh's own
+  (:attr:`phasegauge.model.mesh.Mesh.signed_measures`, quad faces bilinear).
 
 A cell so read has the polyhedron's corners and faces. Where its quad faces are flat it is the
 same solid; where they are bent, its volume is the trilinear cell's, which differs from the
@@ -33,6 +32,7 @@ from types import MappingProxyType
 
 import numpy as np
 
+from ._geometry import cell_geometry
 from .cells import FACES
 
 __all__ = ["ShapeBlock", "ordinary_shapes", "LOOPS"]
@@ -44,10 +44,6 @@ _SHAPES = MappingProxyType({(4, 0): ("tetra", 3, 1), (4, 1): ("pyramid", 4, 1), 
 #: each cell type's faces as loops that run one way round the surface (every edge once each way):
 #: :data:`.cells.FACES`, whose tetrahedron lists corner sets only, with the tetrahedron's loops turned
 LOOPS = MappingProxyType({**FACES, "tetra": ((0, 2, 1), (0, 1, 3), (1, 2, 3), (0, 3, 2))})
-
-#: the sign of the volume of :data:`LOOPS` for a cell of positive measure: a wedge in meshio's corner
-#: order (gmsh's) has its loops turned inwards
-_LOOPS_SIGN = MappingProxyType({"wedge": -1})
 
 #: cells recognised at a time (temporaries of a few MB)
 _CHUNK = 1 << 15
@@ -106,17 +102,16 @@ def ordinary_shapes(points, face_points, face_offsets, face_cell, n_cells: int) 
         return None
     n_tri = np.bincount(face_cell, weights=sizes == 3, minlength=n_cells).astype(np.int64)
     n_quad = np.bincount(face_cell, weights=sizes == 4, minlength=n_cells).astype(np.int64)
-    known = np.zeros(n_cells, dtype=bool)
-    for tri, quad in _SHAPES:
-        known |= (n_tri == tri) & (n_quad == quad)
-    if not known.all():  # a polyhedron of another shape: no work on the others
+    shape = np.full(n_cells, -1)  # each cell's entry of _SHAPES by its faces' sizes
+    for k, (tri, quad) in enumerate(_SHAPES):
+        shape[(n_tri == tri) & (n_quad == quad)] = k
+    if np.any(shape < 0):  # a polyhedron of another shape: no work on the others
         return None
     first_face = np.concatenate([[0], np.cumsum(n_tri + n_quad)])
     X = np.asarray(points, dtype=np.float64)
     blocks = []
-    found = np.zeros(n_cells, dtype=bool)
-    for (tri, quad), (name, base_size, from_q) in _SHAPES.items():
-        cells = np.flatnonzero((n_tri == tri) & (n_quad == quad))
+    for k, ((tri, quad), (name, base_size, from_q)) in enumerate(_SHAPES.items()):
+        cells = np.flatnonzero(shape == k)
         if cells.size == 0:
             continue
         conn = np.empty((cells.size, base_size + from_q), dtype=np.int64)
@@ -127,8 +122,7 @@ def ordinary_shapes(points, face_points, face_offsets, face_cell, n_cells: int) 
                 return None
             conn[a:a + _CHUNK] = part
         blocks.append(ShapeBlock(name, conn, cells))
-        found[cells] = True
-    return blocks if found.all() else None
+    return blocks
 
 
 def _shape_cells(X, face_points, face_offsets, first, n_faces: int, base_size: int, from_q: int, name: str):
@@ -158,7 +152,7 @@ def _shape_cells(X, face_points, face_offsets, first, n_faces: int, base_size: i
     ordered = np.sort(conn, axis=1)
     if np.any(ordered[:, 1:] == ordered[:, :-1]) or not _same_faces(loops, fsize, conn, name):
         return None
-    turned = _signed_volumes(X, conn, name) * _LOOPS_SIGN.get(name, 1) < 0
+    turned = _signed_volumes(X, conn, name) < 0
     conn[turned] = conn[turned][:, list(_TURNED[name])]
     return conn
 
@@ -208,26 +202,8 @@ def _own_number(face) -> int:
 
 
 def _signed_volumes(X, conn, name: str) -> np.ndarray:
-    """Six times each cell's volume by the divergence theorem, about its first corner, each quad face
-    bilinear, so the sign is that of :attr:`phasegauge.model.mesh.Mesh.signed_measures` on bent faces
-    too (found by review: a fan from one corner turned some strongly warped wedges over).
-
-    A bilinear quad (a, b, c, d) adds (a + b + c + d) . ((c - a) x (d - b)) / 4, the mean of its two
-    diagonal cuts' triangles (the identity is checked in ``tests/model/test_polyhedron_shapes.py``).
-    """
-    origin = X[conn[:, 0]]
-    x, y, z = ([X[conn[:, j], i] - origin[:, i] for j in range(conn.shape[1])] for i in range(3))  # about corner 0
-    volume = np.zeros(conn.shape[0])
-    for face in LOOPS[name]:
-        if len(face) == 3:
-            a, b, c = face
-            ux, uy, uz, wx, wy, wz, sx, sy, sz = x[b], y[b], z[b], x[c], y[c], z[c], x[a], y[a], z[a]
-            weight = 1.0
-        else:
-            a, b, c, d = face
-            ux, uy, uz = x[c] - x[a], y[c] - y[a], z[c] - z[a]
-            wx, wy, wz = x[d] - x[b], y[d] - y[b], z[d] - z[b]
-            sx, sy, sz = x[a] + x[b] + x[c] + x[d], y[a] + y[b] + y[c] + y[d], z[a] + z[b] + z[c] + z[d]
-            weight = 0.25
-        volume += weight * (sx * (uy * wz - uz * wy) + sy * (uz * wx - ux * wz) + sz * (ux * wy - uy * wx))
-    return volume
+    """Six times each cell's signed measure, as the mesh counts it (:func:`._geometry.cell_geometry`,
+    which :attr:`phasegauge.model.mesh.Mesh.signed_measures` reads): quad faces bilinear, so a strongly
+    warped cell is not turned over by a fan from one corner (found by review), and a wedge in meshio's
+    corner order is positive."""
+    return 6.0 * cell_geometry(name, X, conn)[0]
