@@ -9,9 +9,13 @@ Runs, one configuration at a time in fresh child processes (the jobs of ``bench_
 * ``polyhedron``: ``bench_polyhedra.py``'s folder of VTK polyhedra (the jittered hexahedra
   written as polyhedra, which the reader takes as hexahedra), configurations ``baseline``
   (pyvista on the polyhedra) and ``polyhedra`` (``measure``);
-* ``polyhedron-split``: its ``split`` folder (the same with one cell of another shape, so every
-  polyhedron is split into tetrahedra, as the ``polyhedron`` rows of rounds before the fourteenth
-  were), ``measure`` only, beside the same baseline.
+* ``polyhedron-mixed``: its ``split`` folder (the same with one cell of another shape, which alone
+  is coned into pyramids and tetrahedra, the others read as hexahedra), ``measure`` only, beside the
+  same baseline;
+* ``polyhedron-split``: its ``triangulated`` folder (every face written as two triangles, so no
+  cell is an ordinary one and every one is split into tetrahedra, as the ``polyhedron`` rows of
+  rounds before the fourteenth and the ``polyhedron-split`` rows of the fourteenth were), ``measure``
+  only, beside the same baseline.
 
 and prints one markdown table: wall and CPU seconds of the baseline and of ``measure``, their
 ratio, the first step, the later steps' median, microseconds per cell-step, peak memory over one
@@ -21,7 +25,8 @@ from ``previous_round.json`` (figures copied from ``RESULTS.md``, each with its 
 Usage::
 
     PYTHONPATH=src python benchmarks/bench_kinds.py [--sizes 0.25,1,4] [--steps 5]
-        [--kinds tetra,grid,hexahedron,polyhedron,polyhedron-split] [--skip polyhedron-split:4] [--json OUT]
+        [--kinds tetra,grid,hexahedron,polyhedron,polyhedron-mixed,polyhedron-split] [--skip polyhedron-split:4]
+        [--json OUT]
 
 ``--skip KIND:SIZE`` leaves a series out (say why in RESULTS.md: the polyhedra at 4M cells need
 about 63x a step's bytes, more memory than this machine has).
@@ -44,7 +49,9 @@ import bench_measure  # noqa: E402  (the jobs and series of the per-kind benchma
 import bench_polyhedra  # noqa: E402
 
 HERE = os.path.dirname(os.path.abspath(__file__))
-KINDS = ("tetra", "grid", "hexahedron", "polyhedron", "polyhedron-split")
+KINDS = ("tetra", "grid", "hexahedron", "polyhedron", "polyhedron-mixed", "polyhedron-split")
+#: the folder of ``bench_polyhedra.py`` each polyhedral kind reads
+POLYHEDRAL_SERIES = {"polyhedron": "polyhedra", "polyhedron-mixed": "split", "polyhedron-split": "triangulated"}
 COLUMNS = ("kind", "cells", "baseline s (cpu)", "measure s (cpu)", "measure / baseline wall (cpu)",
            "first step s", "later steps s", "us per cell-step", "peak / step bytes",
            "previous: measure / baseline", "previous: us per cell-step", "previous: peak / step bytes")
@@ -62,10 +69,11 @@ def run_measure_kind(folder: str, kind: str, millions: float, steps: int) -> dic
 
 def run_polyhedra(folder: str, millions: float, steps: int, kind: str = "polyhedron", baselines=None) -> dict:
     """``bench_polyhedra.py``'s baseline and measure jobs on the polyhedra (``polyhedron``: hexahedra
-    written as polyhedra, read as hexahedra; ``polyhedron-split``: the same with one cell of another
-    shape, so all are split); the figures of one row. The baseline runs once per size (``baselines``)."""
+    written as polyhedra, read as hexahedra; ``polyhedron-mixed``: one cell of another shape among them;
+    ``polyhedron-split``: every face as two triangles, so all are split); the figures of one row. The
+    baseline runs once per size (``baselines``)."""
     info = bench_polyhedra.build(folder, millions, steps)
-    series = info["split" if kind == "polyhedron-split" else "polyhedra"]
+    series = info[POLYHEDRAL_SERIES[kind]]
     baselines = {} if baselines is None else baselines
     if millions not in baselines:
         bench_measure._warm_file_cache(os.path.join(info["polyhedra"], ""))  # the files of that folder
@@ -124,7 +132,7 @@ def main(argv=None) -> None:
                 print(f"{kind} at {millions}M cells: left out (--skip)", flush=True)
                 continue
             start = time.perf_counter()
-            sub = os.path.join(folder, f"{kind.replace('-split', '')}-{millions}")  # the split reads the same folder
+            sub = os.path.join(folder, f"{kind.split('-')[0]}-{millions}")  # the polyhedral kinds share one folder
             os.makedirs(sub, exist_ok=True)
             row = (run_polyhedra(sub, float(millions), args.steps, kind, baselines) if kind.startswith("polyhedron")
                    else run_measure_kind(sub, kind, float(millions), args.steps))
@@ -133,8 +141,8 @@ def main(argv=None) -> None:
             print(f"{kind} {row['cells']} cells: measure / baseline {row['measure_s'] / row['baseline_s']:.2f} "
                   f"(cpu {row['measure_cpu'] / row['baseline_cpu']:.2f}), {row['us_per_cell_step']:.2f} us per "
                   f"cell-step, peak {row['peak_x_step']:.1f}x step ({time.perf_counter() - start:.0f} s)", flush=True)
-            shared = (kind == "polyhedron" and "polyhedron-split" in kinds  # the split reads the same folder
-                      and ("polyhedron-split", millions) not in skip)
+            later = [k for k in kinds[kinds.index(kind) + 1:] if (k, millions) not in skip]
+            shared = kind.startswith("polyhedron") and any(k.startswith("polyhedron") for k in later)
             if not args.keep and not shared:  # a series' files are not needed once its row is measured
                 shutil.rmtree(sub, ignore_errors=True)
     print()

@@ -8,9 +8,12 @@ of about ``--sizes`` million hexahedra, with the droplet field ``c`` of
 * ``polyhedra``: every cell written as a VTK polyhedron (42), six quad faces each;
 * ``hexahedra``: the same cells written as VTK hexahedra (12);
 * ``split``: the polyhedra again, with the first cell's bottom face (on the boundary) written as two
-  triangles: that one cell is no ordinary cell, so the reader splits every polyhedron into
-  tetrahedra, as in a file of polyhedra of other shapes (a file whose polyhedra are all hexahedra
-  is read as hexahedra).
+  triangles: that one cell is no ordinary cell, so the reader cones it (pyramids and tetrahedra
+  about its centre) and reads every other one as a hexahedron, as in a hexahedral mesh with a few
+  polyhedra of other shapes (a file whose polyhedra are all hexahedra is read as hexahedra);
+* ``triangulated``: the polyhedra with every face written as two triangles (cut along the diagonal
+  from its lowest point number, alike from both sides): no cell is an ordinary cell, so the reader
+  splits every one into tetrahedra about its centre, as in a file of polyhedra of other shapes.
 
 Then times, each configuration in a fresh child process, after one untimed read of the files:
 
@@ -48,6 +51,8 @@ sys.path.insert(0, os.path.dirname(os.path.abspath(__file__)))
 from bench_measure import SECTIONS, _cpu_seconds, baseline_step, droplet_field  # noqa: E402
 
 CONFIGS = ("baseline", "polyhedra", "hexahedra")
+#: the series written (see the module notes)
+SERIES = ("polyhedra", "hexahedra", "split", "triangulated")
 
 
 def build(folder: str, millions: float, steps: int) -> dict:
@@ -59,25 +64,28 @@ def build(folder: str, millions: float, steps: int) -> dict:
     n = max(4, int(round((millions * 1e6) ** (1.0 / 3.0))))
     base = os.path.join(folder, f"poly_{n}_{steps}")
     info_path = os.path.join(base, "info.json")
+    done = set()  # series of an earlier build are kept
     if os.path.exists(info_path):
         with open(info_path) as handle:
             info = json.load(handle)
-        if "split" in info:
+        done = {name for name in SERIES if name in info}
+        if len(done) == len(SERIES):
             return info
     mesh = grid_mesh((n, n, n), kind="hexahedron", jitter=0.2, seed=1)
-    grids = {"split": _one_odd_cell(mesh)}
-    if not os.path.exists(info_path):  # series of an earlier build are kept
-        grids["polyhedra"] = to_polyhedral_grid(mesh)
-        grids["hexahedra"] = pyvista.UnstructuredGrid({pyvista.CellType.HEXAHEDRON: mesh.blocks[0].connectivity},
-                                                      mesh.points)
-    for name, grid in grids.items():
+    makers = {"polyhedra": to_polyhedral_grid, "split": _one_odd_cell, "triangulated": _triangulated,
+              "hexahedra": lambda m: pyvista.UnstructuredGrid({pyvista.CellType.HEXAHEDRON: m.blocks[0].connectivity},
+                                                              m.points)}
+    for name in SERIES:
+        if name in done:
+            continue
+        grid = makers[name](mesh)
         os.makedirs(os.path.join(base, name), exist_ok=True)
         for k in range(steps):
             grid.point_data["c"] = droplet_field(mesh.points, k, steps, 1.0 / n)
             grid.save(os.path.join(base, name, f"step_{k:04d}.vtu"))
     step_bytes = mesh.points.nbytes + sum(b.connectivity.nbytes for b in mesh.blocks) + 8 * mesh.n_points
     info = {"cells": mesh.n_cells, "points": mesh.n_points, "steps": steps, "step_bytes": step_bytes,
-            **{name: os.path.join(base, name) for name in ("polyhedra", "hexahedra", "split")}}
+            **{name: os.path.join(base, name) for name in SERIES}}
     with open(info_path, "w") as handle:
         json.dump(info, handle)
     return info
@@ -100,6 +108,26 @@ def _one_odd_cell(mesh):
     stream = np.concatenate([first, rows[1:].ravel()]).astype(np.int64)
     types = np.full(len(conn), pyvista.CellType.POLYHEDRON, dtype=np.uint8)
     return pyvista.UnstructuredGrid(stream, types, mesh.points)
+
+
+def _triangulated(mesh):
+    """The mesh's hexahedra as polyhedra of 12 triangles: each quad face cut along the diagonal from
+    its lowest point number (so both cells on a face cut it alike)."""
+    import pyvista
+
+    from phasegauge.model.cells import FACES
+
+    conn = mesh.blocks[0].connectivity
+    n = len(conn)
+    columns = [np.full(n, 1 + 12 * 4), np.full(n, 12)]
+    for face in FACES["hexahedron"]:
+        loop = conn[:, list(face)]
+        first = np.argmin(loop, axis=1)
+        a, b, c, d = (loop[np.arange(n), (first + j) % 4] for j in range(4))
+        for tri in ((a, b, c), (a, c, d)):
+            columns += [np.full(n, 3), *tri]
+    stream = np.column_stack(columns).ravel().astype(np.int64)
+    return pyvista.UnstructuredGrid(stream, np.full(n, pyvista.CellType.POLYHEDRON, dtype=np.uint8), mesh.points)
 
 
 def job_baseline(folder: str) -> dict:

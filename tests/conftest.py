@@ -96,5 +96,5 @@ def every_polyhedron_split():
     from phasegauge.io import _polyhedra
 
     with pytest.MonkeyPatch.context() as patch:
-        patch.setattr(_polyhedra, "_ordinary_cells", lambda points, made: None)
+        patch.setattr(_polyhedra, "_ordinary_cells", lambda points, made, **_: None)
         yield

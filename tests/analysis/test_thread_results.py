@@ -196,7 +196,7 @@ def test_widths_and_distances_are_the_same_on_any_number_of_threads(kind, tmp_pa
     if kind == "polyhedron":  # hexahedra written as polyhedra, split as polyhedra of other shapes are
         from phasegauge.io import _polyhedra
 
-        monkeypatch.setattr(_polyhedra, "_ordinary_cells", lambda points, made: None)  # (conftest's, for one test)
+        monkeypatch.setattr(_polyhedra, "_ordinary_cells", lambda points, made, **_: None)  # (conftest's, for one test)
         path = str(tmp_path / "poly.vtu")
         to_polyhedral_grid(mesh, point_data={"c": profile(mesh.points)}).save(path)
         mesh = Series(path).read(0).mesh

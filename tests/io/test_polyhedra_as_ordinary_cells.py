@@ -1,7 +1,8 @@
 """Files whose polyhedra (VTK 42) are all hexahedra, wedges, pyramids or tetrahedra written as faces.
 
-Such a file is read as those ordinary cells (``io/_polyhedra._ordinary_cells``); a file with one
-polyhedron of any other shape is split as before (``tests/io/test_polyhedral_files.py``).
+Such a file is read as those ordinary cells (``io/_polyhedra._ordinary_cells``); beside polyhedra of
+other shapes they are kept whole too (``tests/io/test_polyhedra_beside_whole_cells.py``), and a file
+with no ordinary cell is split into tetrahedra (``tests/io/test_polyhedral_files.py``).
 
 Outside checks: the files are written by VTK itself (pyvista) [lib]; cell volumes against pyvista's
 ``compute_cell_sizes`` of the polyhedra (affine images of boxes, flat faces: exact) [lib]; the volume
@@ -70,14 +71,14 @@ def test_a_run_on_hexahedra_written_as_polyhedra_equals_the_run_on_the_hexahedra
         np.testing.assert_allclose(runs[0][column], runs[1][column], rtol=1e-9, err_msg=column)
 
 
-def test_one_polyhedron_of_another_shape_splits_them_all(tmp_path):
+def test_one_polyhedron_of_another_shape_leaves_the_others_whole(tmp_path):
     from phasegauge.model.cells import FACES
 
     mesh = grid_mesh((3, 3, 3), kind="hexahedron", jitter=0.2, seed=1)
     stream = []
     for k, row in enumerate(mesh.blocks[0].connectivity):
         faces = [list(row[list(f)]) for f in FACES["hexahedron"]]
-        if k == 0:  # the first cell's first face cut into two triangles: 7 faces, no ordinary cell
+        if k == 0:  # the first cell's first face (on the boundary) cut into two triangles: 7 faces, no ordinary cell
             a, b, c, d = faces[0]
             faces[:1] = [[a, b, c], [a, c, d]]
         cell = [len(faces)] + [x for f in faces for x in [len(f), *f]]
@@ -86,7 +87,10 @@ def test_one_polyhedron_of_another_shape_splits_them_all(tmp_path):
     path = str(tmp_path / "odd.vtu")
     pv.UnstructuredGrid(np.array(stream), types, mesh.points).save(path)
     read = Series(path).read(0).mesh
-    assert set(read.cell_type_counts) == {"tetra"} and read.n_whole_cells == mesh.n_cells
+    # it alone read as pyramids (5 quads) and tetrahedra (2 triangles) about its centre
+    # (tests/io/test_polyhedra_beside_whole_cells.py)
+    assert read.cell_type_counts == {"hexahedron": mesh.n_cells - 1, "pyramid": 5, "tetra": 2}
+    assert read.n_whole_cells == mesh.n_cells
     np.testing.assert_allclose(read.total_measure, mesh.total_measure, rtol=1e-12)
 
 
@@ -103,7 +107,7 @@ def test_a_series_reads_its_polyhedra_once(tmp_path, monkeypatch, read_as):
         grid.point_data["c"] = mesh.points[:, 0] * (k + 1) / 3
         grid.save(str(tmp_path / f"step_{k}.vtu"))
     if read_as == "split":
-        monkeypatch.setattr(_polyhedra, "_ordinary_cells", lambda points, made: None)  # (conftest's fixture)
+        monkeypatch.setattr(_polyhedra, "_ordinary_cells", lambda points, made, **_: None)  # (conftest's fixture)
     module, name = (polyhedra, "split_polyhedra") if read_as == "split" else (_polyhedron_shapes, "ordinary_shapes")
     calls, original = [], getattr(module, name)
     monkeypatch.setattr(module, name, lambda *a, **k: calls.append(1) or original(*a, **k))

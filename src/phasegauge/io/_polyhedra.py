@@ -1,4 +1,4 @@
-"""VTK files holding polyhedral cells (type 42): read with VTK's own reader, split into tetrahedra.
+"""VTK files holding polyhedral cells (type 42): read with VTK's own reader, as ordinary cells or pieces.
 
 meshio reads polyhedra from VTK XML files of format 2.2 and before only, and only when every cell
 of the file is one (its reader refuses them mixed with other cells and lists their faces one
@@ -9,7 +9,12 @@ reader (through pyvista, as the structured datasets are) and handed over as a me
 
 * when every polyhedron of the file is a tetrahedron, pyramid, wedge or hexahedron written as
   faces (:func:`phasegauge.model._polyhedron_shapes.ordinary_shapes`), the file is read as those
-  cells: nothing is split and no point is added (:class:`OrdinaryCells`); otherwise
+  cells: nothing is split and no point is added (:class:`OrdinaryCells`);
+* when some are and some are not, or the file has hexahedra, wedges or pyramids of its own beside
+  polyhedra of other shapes, those cells stay whole and the other polyhedra become pyramids (their
+  quad faces) and tetrahedra (their triangles, larger faces cut about a face centre) joined to their
+  cell centres (:class:`MixedCells`, ``split_polyhedra(..., pyramids=True)``): a quad face shared with
+  a whole cell is a quad on both sides, which the mesh groups as one face and cuts once; otherwise
 * polyhedra become the tetrahedra of :func:`phasegauge.model.polyhedra.split_polyhedra`
   (about their cell centres; quad faces cut along their shorter diagonal, larger faces about
   a face centre); hexahedra, wedges and pyramids of the same file are split the same way, so
@@ -37,6 +42,7 @@ import re
 import warnings
 from dataclasses import dataclass
 from functools import cached_property, partial
+from types import MappingProxyType
 
 import numpy as np
 
@@ -248,7 +254,7 @@ class PolyhedralRead:
 
         split = self.split
         mesh.memo(self._KEY, lambda: (self.signature, split))
-        if isinstance(split, OrdinaryCells):
+        if isinstance(split, (OrdinaryCells, MixedCells)):
             return
         if (split.n_centres and mesh.point_merge is None
                 and mesh.n_points == split.n_points + split.n_centres):
@@ -271,7 +277,7 @@ class PolyhedralRead:
             # the polyhedra's face streams first: the file's own hexahedra, wedges and pyramids need theirs
             # only if the cells are split
             made = [(make() if block is None else make, rows, block) for make, rows, block in self._streams]
-            self._split = None if convex else _ordinary_cells(self._points, made)
+            self._split = None if convex else _ordinary_cells(self._points, made, where=self.path)
             if self._split is None:
                 face_points, face_offsets, face_cell = _join_streams(
                     [(stream if block is None else stream(), rows) for stream, rows, block in made])
@@ -293,25 +299,15 @@ class PolyhedralRead:
 
     @cached_property
     def _raw(self):
-        split, path = self.split, self.path
+        split = self.split
         if isinstance(split, OrdinaryCells):
             return self._ordinary_raw(split)
-        if split.inverted_tetra:
-            warnings.warn(MeshWarning(f"{split.inverted_tetra} tetrahedra of the polyhedra's split have negative "
-                                      "volume (cells not star-shaped from their corner mean)", where=path),
-                          stacklevel=3)
+        if isinstance(split, MixedCells):
+            return self._mixed_raw(split)
+        self._warn_inverted(split)
         rows = self._rows
         blocks = self._blocks + [("tetra", split.tetra)]
-        point_data, points = dict(self._point_data), self._points
-        if split.n_centres:
-            for name, values in list(point_data.items()):
-                if np.issubdtype(values.dtype, np.number):
-                    point_data[name] = np.concatenate([values.astype(np.float64), split.centre_values(values)])
-                else:
-                    del point_data[name]
-            # the split's own copy (same points: the signature matched), shared by the steps
-            points = split.points if split.points is not None else np.concatenate([points,
-                                                                                    split.centre_values(points)])
+        points, point_data = self._with_centres(split)
         # 8 bytes a tetrahedron: only if used
         rows_of = self._rows_of + [rows[split.source]] if self._numeric_cell_data() else []
         raw = new_mesh(points, blocks, point_data=point_data, cell_data=self._cell_data_of(rows_of),
@@ -333,6 +329,46 @@ class PolyhedralRead:
             words += f" and the {others} hexahedra, wedges and pyramids beside them"
         words += f" read as {len(split.tetra)} tetrahedra about their cell centres"
         raw.convex_point_sets = words if not note else f"{words}; {note}"
+        return raw
+
+    def _warn_inverted(self, split) -> None:
+        if split.inverted_tetra:
+            warnings.warn(MeshWarning(f"{split.inverted_tetra} tetrahedra of the polyhedra's split have negative "
+                                      "volume (cells not star-shaped from their corner mean)", where=self.path),
+                          stacklevel=4)
+
+    def _with_centres(self, split) -> tuple:
+        """The points and the numeric point fields with the split's added centres after the points."""
+        point_data, points = dict(self._point_data), self._points
+        if split.n_centres:
+            for name, values in list(point_data.items()):
+                if np.issubdtype(values.dtype, np.number):
+                    point_data[name] = np.concatenate([values.astype(np.float64), split.centre_values(values)])
+                else:
+                    del point_data[name]
+            # the split's own copy (same points: the signature matched), shared by the steps
+            points = split.points if split.points is not None else np.concatenate([points,
+                                                                                    split.centre_values(points)])
+        return points, point_data
+
+    def _mixed_raw(self, mixed: "MixedCells"):
+        """The file as read when some of its polyhedra are ordinary cells: those and the file's own
+        cells whole, the other polyhedra as the pyramids and tetrahedra about their centres."""
+        from ..model.cells import JoinedPieces
+
+        split = mixed.split
+        self._warn_inverted(split)
+        pieces = (("pyramid", split.pyramids, split.pyramid_source), ("tetra", split.tetra, split.source))
+        coned = [(name, cells, source) for name, cells, source in pieces if len(cells)]
+        whole = self._blocks + [(name, cells) for name, cells, _ in mixed.blocks]
+        rows_of = self._rows_of + [rows for _, _, rows in mixed.blocks] + [mixed.rows[source] for *_, source in coned]
+        points, point_data = self._with_centres(split)
+        raw = new_mesh(points, whole + [(name, cells) for name, cells, _ in coned], point_data=point_data,
+                       cell_data=self._cell_data_of(rows_of), field_data=self.field_data)
+        # a polyhedron's pyramids and tetrahedra are pieces of it: numbered alike across their two blocks
+        raw.cell_pieces = [None] * len(whole) + [source if k == 0 else JoinedPieces(source)
+                                                 for k, (*_, source) in enumerate(coned)]
+        raw.convex_point_sets = mixed.words
         return raw
 
     def _ordinary_raw(self, ordinary: "OrdinaryCells"):
@@ -370,27 +406,83 @@ class OrdinaryCells:
     words: str
 
 
-def _ordinary_cells(points, made: list) -> OrdinaryCells | None:
-    """The file's split cells as ordinary cells when every polyhedron is one (``made``: per part, the
-    polyhedra's face stream or, for the file's own hexahedra, wedges and pyramids, anything; the input
-    rows; None or those cells' block), else None."""
-    from ..model._polyhedron_shapes import ordinary_shapes
+@dataclass(frozen=True, eq=False)
+class MixedCells:
+    """The cells of a file of which some polyhedra are ordinary cells written as faces and some not.
 
-    blocks, counts = [], {}
+    Attributes
+    ----------
+    blocks : list of (str, ndarray, ndarray)
+        As :attr:`OrdinaryCells.blocks`: the file's hexahedra, wedges and pyramids, then the
+        polyhedra that are ordinary cells; kept whole.
+    split : PolyhedraSplit
+        The other polyhedra as pyramids (their quad faces) and tetrahedra (their triangles, and the
+        triangles about the centres of larger faces) joined to their cell centres
+        (:func:`~phasegauge.model.polyhedra.split_polyhedra` with ``pyramids=True``): a quad face
+        they share with a whole cell is a quad on both sides, so the mesh groups and cuts it once.
+    rows : ndarray of shape (m,), int64
+        The input rows of those polyhedra (``split.source`` and ``split.pyramid_source`` number them).
+    words : str
+        How the cells were read (``inspect`` shows it).
+    """
+
+    blocks: list
+    split: object
+    rows: np.ndarray
+    words: str
+
+
+_NAMES = MappingProxyType({"tetra": "tetrahedra", "pyramid": "pyramids", "wedge": "wedges", "hexahedron": "hexahedra"})
+
+
+def _ordinary_cells(points, made: list, *, where: str = ""):
+    """The file's split cells read as ordinary cells where they are ones (``made``: per part, the
+    polyhedra's face stream or, for the file's own hexahedra, wedges and pyramids, anything; the input
+    rows; None or those cells' block).
+
+    Returns :class:`OrdinaryCells` when every polyhedron is an ordinary cell; :class:`MixedCells` when
+    some cells are (or the file has hexahedra, wedges or pyramids of its own) and other polyhedra are
+    not; None when no cell is kept whole (every polyhedron of another shape: the tetrahedra's split).
+    """
+    from ..model._polyhedron_shapes import ordinary_shapes
+    from ..model.polyhedra import split_polyhedra
+
+    blocks, counts, rest = [], {}, []
     for stream, rows, block in made:
         if block is not None:
             blocks.append((block[0], block[1], rows))
             continue
-        shapes = ordinary_shapes(points, *stream, rows.size)
-        if shapes is None:
-            return None
-        for shape in shapes:
+        found = np.zeros(rows.size, dtype=bool)
+        for shape in ordinary_shapes(points, *stream, rows.size, every=False) or ():
             blocks.append((shape.cell_type, shape.connectivity, rows[shape.cells]))
             counts[shape.cell_type] = counts.get(shape.cell_type, 0) + int(shape.cells.size)
-    names = {"tetra": "tetrahedra", "pyramid": "pyramids", "wedge": "wedges", "hexahedron": "hexahedra"}
-    listed = ", ".join(f"{n} {names[t]}" for t, n in counts.items())
-    return OrdinaryCells(blocks, f"{sum(counts.values())} polyhedral cells (VTK 42) read as the ordinary cells "
-                                 f"their faces make: {listed}")
+            found[shape.cells] = True
+        if not found.all():
+            rest.append((_cells_of_stream(stream, ~found), rows[~found]))
+    listed = ", ".join(f"{n} {_NAMES[t]}" for t, n in counts.items())
+    if not rest:
+        return OrdinaryCells(blocks, f"{sum(counts.values())} polyhedral cells (VTK 42) read as the ordinary cells "
+                                     f"their faces make: {listed}")
+    if not blocks:
+        return None
+    rows = np.concatenate([r for _, r in rest]).astype(np.int64)
+    split = split_polyhedra(points, *_join_streams(rest), rows.size, where=where, cell_ids=rows, pyramids=True)
+    words = f"{sum(counts.values()) + rows.size} polyhedral cells (VTK 42): "
+    if counts:
+        words += f"{listed} read as the ordinary cells their faces make; "
+    words += (f"the other {rows.size} read as {len(split.pyramids)} pyramids and {len(split.tetra)} tetrahedra "
+              "about their cell centres")
+    return MixedCells(blocks, split, rows, words)
+
+
+def _cells_of_stream(stream, keep: np.ndarray) -> tuple:
+    """The face stream of the cells ``keep`` (a mask) of a face stream, the cells numbered anew."""
+    face_points, face_offsets, face_cell = stream
+    faces = np.flatnonzero(keep[face_cell])
+    sizes = (face_offsets[faces + 1] - face_offsets[faces]).astype(np.int64)
+    number = np.cumsum(keep) - 1
+    return (face_points[ranges(face_offsets, faces)], np.concatenate([[0], np.cumsum(sizes)]).astype(np.int64),
+            number[face_cell[faces]])
 
 
 def _join_streams(streams: list):

@@ -72,7 +72,8 @@ class ShapeBlock:
     cells: np.ndarray
 
 
-def ordinary_shapes(points, face_points, face_offsets, face_cell, n_cells: int) -> list[ShapeBlock] | None:
+def ordinary_shapes(points, face_points, face_offsets, face_cell, n_cells: int, *,
+                    every: bool = True) -> list[ShapeBlock] | None:
     """The polyhedra of a face stream as ordinary cells, or None when any one is not one.
 
     Parameters
@@ -84,13 +85,17 @@ def ordinary_shapes(points, face_points, face_offsets, face_cell, n_cells: int) 
         faces, their offsets (``n_faces + 1``), the cell of each face; faces listed cell after cell.
     n_cells : int
         Number of polyhedra.
+    every : bool
+        True: all or nothing (None when one polyhedron is not an ordinary cell). False: the
+        polyhedra that are, leaving the others out (an empty list when none is).
 
     Returns
     -------
     list of ShapeBlock or None
-        One block per cell type found, covering every polyhedron; None when some polyhedron is
-        not a tetrahedron, pyramid, wedge or hexahedron by the rule of the module notes (the
-        caller then splits them all as polyhedra).
+        One block per cell type found, covering every polyhedron (``every``) or those that are
+        ordinary cells; None when some polyhedron is not a tetrahedron, pyramid, wedge or
+        hexahedron by the rule of the module notes (with ``every``), or the faces are not listed
+        cell by cell.
     """
     face_points = np.asarray(face_points)
     face_offsets = np.asarray(face_offsets, dtype=np.int64)
@@ -98,16 +103,18 @@ def ordinary_shapes(points, face_points, face_offsets, face_cell, n_cells: int) 
     if n_cells == 0 or face_cell.size == 0 or np.any(np.diff(face_cell) < 0):
         return None
     sizes = np.diff(face_offsets)
-    if np.any((sizes != 3) & (sizes != 4)):
+    other = (sizes != 3) & (sizes != 4)
+    if every and np.any(other):
         return None
     n_tri = np.bincount(face_cell, weights=sizes == 3, minlength=n_cells).astype(np.int64)
     n_quad = np.bincount(face_cell, weights=sizes == 4, minlength=n_cells).astype(np.int64)
+    n_other = np.bincount(face_cell, weights=other, minlength=n_cells).astype(np.int64) if other.any() else 0
     shape = np.full(n_cells, -1)  # each cell's entry of _SHAPES by its faces' sizes
     for k, (tri, quad) in enumerate(_SHAPES):
-        shape[(n_tri == tri) & (n_quad == quad)] = k
-    if np.any(shape < 0):  # a polyhedron of another shape: no work on the others
+        shape[(n_tri == tri) & (n_quad == quad) & (n_other == 0)] = k
+    if every and np.any(shape < 0):  # a polyhedron of another shape: no work on the others
         return None
-    first_face = np.concatenate([[0], np.cumsum(n_tri + n_quad)])
+    first_face = np.concatenate([[0], np.cumsum(n_tri + n_quad + n_other)])
     X = np.asarray(points, dtype=np.float64)
     blocks = []
     for k, ((tri, quad), (name, base_size, from_q)) in enumerate(_SHAPES.items()):
@@ -115,19 +122,24 @@ def ordinary_shapes(points, face_points, face_offsets, face_cell, n_cells: int) 
         if cells.size == 0:
             continue
         conn = np.empty((cells.size, base_size + from_q), dtype=np.int64)
+        found = np.ones(cells.size, dtype=bool)
         for a in range(0, cells.size, _CHUNK):  # a chunk's temporaries stay small beside the mesh
-            part = _shape_cells(X, face_points, face_offsets, first_face[cells[a:a + _CHUNK]], tri + quad,
-                                base_size, from_q, name)
-            if part is None:
+            part, ok = _shape_cells(X, face_points, face_offsets, first_face[cells[a:a + _CHUNK]], tri + quad,
+                                    base_size, from_q, name)
+            if every and not ok.all():
                 return None
             conn[a:a + _CHUNK] = part
-        blocks.append(ShapeBlock(name, conn, cells))
+            found[a:a + _CHUNK] = ok
+        if not found.all():
+            conn, cells = conn[found], cells[found]
+        if cells.size:
+            blocks.append(ShapeBlock(name, conn, cells))
     return blocks
 
 
 def _shape_cells(X, face_points, face_offsets, first, n_faces: int, base_size: int, from_q: int, name: str):
-    """Corner lists (positive measure) of cells of one face signature, or None when any one is
-    not the cell ``name``."""
+    """Corner lists (positive measure) of cells of one face signature, and whether each is the
+    cell ``name`` (the lists of the others mean nothing)."""
     k = first.size
     faces = first[:, None] + np.arange(n_faces)  # (k, F) face numbers
     starts = face_offsets[faces]
@@ -150,16 +162,16 @@ def _shape_cells(X, face_points, face_offsets, first, n_faces: int, base_size: i
         q[:, i] = ends_flat[np.arange(k), np.argmax(leaving, axis=1)]
     conn = np.concatenate([p, q[:, :from_q]], axis=1)
     ordered = np.sort(conn, axis=1)
-    if np.any(ordered[:, 1:] == ordered[:, :-1]) or not _same_faces(loops, fsize, conn, name):
-        return None
+    ok = ~np.any(ordered[:, 1:] == ordered[:, :-1], axis=1) & _same_faces(loops, fsize, conn, name)
+    conn[~ok] = 0  # (a corner twice, or -1: nothing to measure)
     turned = _signed_volumes(X, conn, name) < 0
     conn[turned] = conn[turned][:, list(_TURNED[name])]
-    return conn
+    return conn, ok
 
 
-def _same_faces(loops, fsize, conn, name: str) -> bool:
-    """Whether every cell's faces are the faces of ``conn`` as cell ``name``, loop for loop, all in
-    their direction or all reversed.
+def _same_faces(loops, fsize, conn, name: str) -> np.ndarray:
+    """Whether each cell's faces are the faces of ``conn`` as cell ``name``, loop for loop, all in
+    their direction or all reversed (k,).
 
     Each face corner is put as its place in ``conn`` (0-7), and each loop as one number: its size
     and the places read from the smallest one round (the same loop whatever corner it starts at).
@@ -172,8 +184,8 @@ def _same_faces(loops, fsize, conn, name: str) -> bool:
         equal = loops == conn[:, j, None, None]
         place += np.int16(j) * equal
         hits += equal
-    if np.any(hits[np.arange(4) < fsize[..., None]] != 1):  # a corner that is not one of the cell's
-        return False
+    # a corner that is not one of the cell's
+    alien = np.any((hits != 1) & (np.arange(4) < fsize[..., None]), axis=(1, 2))
     codes = np.zeros(fsize.shape, dtype=np.int32)
     for size in (3, 4):
         code = np.minimum.reduce([_loop_number(place[..., [(r + t) % size for t in range(size)]])
@@ -183,7 +195,7 @@ def _same_faces(loops, fsize, conn, name: str) -> bool:
     faces = LOOPS[name]
     forward = np.sort([_own_number(f) for f in faces])
     backward = np.sort([_own_number(f[::-1]) for f in faces])
-    return bool(np.all(np.all(codes == forward, axis=1) | np.all(codes == backward, axis=1)))
+    return ~alien & (np.all(codes == forward, axis=1) | np.all(codes == backward, axis=1))
 
 
 def _loop_number(places: np.ndarray) -> np.ndarray:

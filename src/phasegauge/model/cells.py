@@ -1,10 +1,23 @@
-"""Cell tables of the model: dimensions, corner maps, faces and edges in VTK corner order."""
+"""Cell tables of the model: dimensions, corner maps, faces and edges in VTK corner order; how a
+reader marks the pieces of the cells it split."""
 
 from __future__ import annotations
 
 from types import MappingProxyType
+from typing import NamedTuple
 
-__all__ = ["CELL_DIMENSION", "LINEAR_CORNERS", "FACES", "EDGES"]
+import numpy as np
+
+__all__ = ["CELL_DIMENSION", "LINEAR_CORNERS", "FACES", "EDGES", "JoinedPieces"]
+
+
+class JoinedPieces(NamedTuple):
+    """A reader's mark of a block whose cells are pieces of cells numbered as the block before it
+    numbers them (``Mesh(..., pieces=[..., marks, JoinedPieces(marks)])``: one cell's pieces of two
+    types, such as a polyhedron's pyramids and tetrahedra). A plain mark (an array) numbers its
+    cells after every block before it."""
+
+    parents: np.ndarray
 
 #: topological dimension of every cell type the model accepts
 CELL_DIMENSION = MappingProxyType({

@@ -30,7 +30,7 @@ from ._faces import (cell_adjacency, face_pairs, face_rows, face_topology, grid_
                      local_faces, row_owners, unique_edges)
 from ._grouping import index_dtype, unique_ints
 from ._regular_grid import RegularGrid, find_regular_grid
-from .cells import CELL_DIMENSION, LINEAR_CORNERS
+from .cells import CELL_DIMENSION, LINEAR_CORNERS, JoinedPieces
 
 __all__ = ["Mesh", "CellBlock", "RegularGrid"]
 
@@ -177,13 +177,16 @@ class Mesh:
         self.point_merge = None if point_merge is None else np.asarray(point_merge, dtype=np.int64)
         self.cell_parents = None  # the whole cell of each analysed cell, when a reader split cells
         if pieces is not None and any(pieces[i] is not None for i in self.kept_blocks):
-            parts, top = [], 0
+            parts, top, base = [], 0, 0
             for i, block in zip(self.kept_blocks, self.blocks):
-                own = np.arange(len(block)) if pieces[i] is None else np.asarray(pieces[i])
+                mark = pieces[i]
+                # pieces numbered with the block before (one cell's pieces of two types), else after it
+                base = base if isinstance(mark, JoinedPieces) else top
+                own = np.arange(len(block)) if mark is None else np.asarray(getattr(mark, "parents", mark))
                 if own.dtype.kind not in "iu" or len(self.blocks) > 1:  # one block: the reader's type (int32)
                     own = own.astype(np.int64, copy=False)
-                parts.append(own + top if top else own)
-                top += int(own.max()) + 1 if own.size else 0
+                parts.append(own + base if base else own)
+                top = max(top, base + (int(own.max()) + 1 if own.size else 0))
             self.cell_parents = np.concatenate(parts) if len(parts) > 1 else parts[0]  # one block: the reader's
 
     # ------------------------------------------------------------------ basics

@@ -1,4 +1,4 @@
-"""Polyhedral cells (VTK type 42) as tetrahedra about their cell centres.
+"""Polyhedral cells (VTK type 42) as tetrahedra (or pyramids on their quad faces) about their cell centres.
 
 A polyhedron is given by its faces, each a loop of corner points. It is split into tetrahedra
 that conform with its neighbours:
@@ -18,6 +18,13 @@ that conform with its neighbours:
 * every face triangle is joined to the cell centre, the mean of the cell's distinct corners,
   so a hexahedron-shaped polyhedron becomes 12 tetrahedra (24 with a centre on every face, as
   a cube's square faces keep), a wedge 8 and a pyramid 6.
+
+With ``pyramids=True`` a face of four corners is left whole: joined to the cell centre it is a
+pyramid (:attr:`PolyhedraSplit.pyramids`), whose volume is taken with its base bilinear, as the
+mesh measures a pyramid. Its quad base then matches the quad face of an ordinary cell, or of
+another polyhedron's pyramid, across it, and the mesh's own split plan cuts it once for both sides
+(a reader keeps ordinary cells whole beside polyhedra of other shapes so). No face neighbours are
+given then: the mesh groups the faces.
 
 The tetrahedra's face neighbours (:mod:`._split_neighbours`) follow the cut: the two triangles of
 a face cut along a diagonal are neighbours across the diagonal's facet in the cell, and each
@@ -98,8 +105,13 @@ class PolyhedraSplit:
     neighbours : ndarray of shape (m, 4), int32 or int64, optional
         The tetrahedra's face neighbours found from the polyhedra's faces
         (:mod:`._split_neighbours`), each row the higher numbers first, then the lower, each
-        increasing, -1 at the end (a face on the boundary); None when the faces did not allow it.
-        The same adjacency as grouping the tetrahedra's faces.
+        increasing, -1 at the end (a face on the boundary); None when the faces did not allow it
+        (and with ``pyramids``). The same adjacency as grouping the tetrahedra's faces.
+    pyramids : ndarray of shape (p, 5), int64, optional
+        With ``split_polyhedra(..., pyramids=True)``: each quad face joined to its cell's centre,
+        a pyramid (base corners 0-3, apex the centre 4; positive measure, bilinear base).
+    pyramid_source : ndarray of shape (p,), optional
+        The input cell of each pyramid (in increasing order).
     """
 
     tetra: np.ndarray
@@ -112,6 +124,8 @@ class PolyhedraSplit:
     inverted_tetra: int = 0
     points: np.ndarray | None = None
     neighbours: np.ndarray | None = None
+    pyramids: np.ndarray | None = None
+    pyramid_source: np.ndarray | None = None
 
     @property
     def n_centres(self) -> int:
@@ -264,7 +278,7 @@ def _check_closed(face_points, nxt, edge_cell, where: str, ids) -> None:
 
 
 def split_polyhedra(points: np.ndarray, face_points, face_offsets, face_cell, n_cells: int, *,
-                    where: str = "", cell_ids=None, diagonals: bool = True) -> PolyhedraSplit:
+                    where: str = "", cell_ids=None, diagonals: bool = True, pyramids: bool = False) -> PolyhedraSplit:
     """Split polyhedral cells into tetrahedra about their cell centres (and the centres of faces of
     five or more corners, or of quads whose diagonals tie: see the module notes).
 
@@ -288,6 +302,11 @@ def split_polyhedra(points: np.ndarray, face_points, face_offsets, face_cell, n_
     diagonals : bool
         Cut faces of four corners along their shorter diagonal (default); False gives every one a
         centre (for cells split beside others that centre all of their quad faces).
+    pyramids : bool
+        Leave faces of four corners whole: each, joined to its cell's centre, is a pyramid
+        (:attr:`PolyhedraSplit.pyramids`), whose quad base matches the quad face of an ordinary
+        cell (or of another polyhedron's pyramid) across it; ``diagonals`` is then not read, and
+        no face neighbours are given.
 
     Returns
     -------
@@ -321,6 +340,8 @@ def split_polyhedra(points: np.ndarray, face_points, face_offsets, face_cell, n_
     twin = edge_twins(face_points, nxt, edge_cell, n_points)
     if twin is None and not (packed and _closed_by_keys(face_points, nxt, edge_cell, bits)):
         _check_closed(face_points, nxt, edge_cell, where, ids)  # the grouping names what is wrong
+    if pyramids:
+        twin = None  # the pieces' face neighbours: the mesh groups their faces (pyramids among them)
 
     # cell centres first: the mean of each cell's distinct corners (the quad faces' turn check reads them)
     if packed:  # the distinct (cell, corner) keys in increasing order, as the grouping orders them
@@ -347,7 +368,8 @@ def split_polyhedra(points: np.ndarray, face_points, face_offsets, face_cell, n_
     n_face_centres = 0
     centred_groups = []  # per face size: what the tetrahedra's neighbours across the faces need
     diagonal_faces, diagonal_shift = np.zeros(0, dtype=np.int64), np.zeros(0, dtype=np.int64)
-    for k in np.unique(sizes[sizes >= 4]):
+    smallest_centred = 5 if pyramids else 4
+    for k in np.unique(sizes[sizes >= smallest_centred]):
         faces = np.flatnonzero(sizes == k)
         if faces.size * k == face_points.size:  # every face of this size: the stream itself, k a row
             rows = face_points.reshape(-1, k)
@@ -388,7 +410,7 @@ def split_polyhedra(points: np.ndarray, face_points, face_offsets, face_cell, n_
     # tetrahedra: each face triangle joined to the cell centre; a face listed with an outward
     # normal gives (b, a, c, centre) a positive volume
     triangles = np.flatnonzero(sizes == 3)
-    centred = sizes >= 4
+    centred = sizes >= smallest_centred
     centred[diagonal_faces] = False
     corner = np.flatnonzero(np.repeat(centred, sizes))  # stream positions of the centred faces' corners
     n_flat = triangles.size + 2 * diagonal_faces.size  # tetrahedra on whole face triangles
@@ -435,12 +457,17 @@ def split_polyhedra(points: np.ndarray, face_points, face_offsets, face_cell, n_
             neighbours = np.where(neighbours >= 0, new[neighbours], neighbours)
     if neighbours is not None:
         ordered_rows(neighbours)
+    pyramid, pyramid_source = (_quad_pyramids(face_points, face_offsets, sizes, face_cell, cell_centre, source.dtype)
+                               if pyramids else (None, None))
 
     face_xyz = _means(X, centre_points[:centre_offsets[n_face_centres]], centre_offsets[:n_face_centres + 1])
     Y = np.concatenate([X, face_xyz, cell_xyz])
     del face_xyz, cell_xyz
     volume = _signed_volumes(Y, tetra)
     total = np.bincount(source, weights=volume, minlength=n_cells)
+    if pyramid is not None:
+        pyramid_volume = _pyramid_volumes(Y, pyramid)
+        total = total + np.bincount(pyramid_source, weights=pyramid_volume, minlength=n_cells)
     turn = total < 0
     if turn.any():
         flip = np.flatnonzero(turn[source])
@@ -449,10 +476,43 @@ def split_polyhedra(points: np.ndarray, face_points, face_offsets, face_cell, n_
         tetra[flip, 1] = first
         del first
         volume[flip] = -volume[flip]
+        if pyramid is not None:  # the base the other way round
+            flip = np.flatnonzero(turn[pyramid_source])
+            pyramid[flip, 1], pyramid[flip, 3] = pyramid[flip, 3], pyramid[flip, 1].copy()
+            pyramid_volume[flip] = -pyramid_volume[flip]
+    inverted = int(np.count_nonzero(volume < 0))
+    if pyramid is not None:
+        inverted += int(np.count_nonzero(pyramid_volume < 0))
     done = PolyhedraSplit(tetra, source, centre_points, centre_offsets, n_points, n_face_centres,
-                          reversed_cells=int(np.count_nonzero(turn)),
-                          inverted_tetra=int(np.count_nonzero(volume < 0)), points=Y, neighbours=neighbours)
+                          reversed_cells=int(np.count_nonzero(turn)), inverted_tetra=inverted, points=Y,
+                          neighbours=neighbours, pyramids=pyramid, pyramid_source=pyramid_source)
     return done
+
+
+def _quad_pyramids(face_points, face_offsets, sizes, face_cell, cell_centre, dtype) -> tuple:
+    """Each quad face joined to its cell's centre: pyramids (p, 5) and their cells (p,), cell by cell.
+
+    A face listed with an outward normal, (a, b, c, d), gives the pyramid (a, d, c, b, centre): the
+    base loop then turns about the direction to the apex, VTK's positive pyramid.
+    """
+    quads = np.flatnonzero(sizes == 4)
+    start = face_offsets[quads]
+    pyramid = np.empty((quads.size, 5), dtype=np.int64)
+    for j, at in enumerate((0, 3, 2, 1)):
+        pyramid[:, j] = face_points[start + at]
+    owner = face_cell[quads].astype(dtype)
+    pyramid[:, 4] = cell_centre[owner]
+    if owner.size and np.any(owner[1:] < owner[:-1]):  # faces not listed cell by cell
+        keep = np.argsort(owner, kind="stable")
+        pyramid, owner = pyramid[keep], owner[keep]
+    return pyramid, owner
+
+
+def _pyramid_volumes(Y: np.ndarray, pyramid: np.ndarray) -> np.ndarray:
+    """Signed volumes of pyramids with bilinear bases: the mean of the two splits of the base along
+    its diagonals (the volume under a bilinear patch is the mean of its two triangulations')."""
+    halves = [(0, 1, 2, 4), (0, 2, 3, 4), (0, 1, 3, 4), (1, 2, 3, 4)]
+    return 0.5 * sum(_signed_volumes(Y, pyramid[:, list(t)]) for t in halves)
 
 
 def _fill_centred(tetra, source, face_points, nxt, centre_of_position, edge_cell, first_cell_centre: int) -> None:

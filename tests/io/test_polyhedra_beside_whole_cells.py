@@ -1,0 +1,163 @@
+"""Files whose polyhedra (VTK 42) are partly ordinary cells written as faces and partly not.
+
+The ordinary ones (and the file's own hexahedra) are kept whole; the others are read as pyramids on
+their quad faces and tetrahedra on their triangles (and about the centres of larger faces), joined to
+their cell centres (``io/_polyhedra.MixedCells``): a quad face shared with a whole cell stays a quad
+on both sides.
+
+Outside checks: the files are written by VTK itself (pyvista) [lib]; whole-cell volumes against
+pyvista's ``compute_cell_sizes`` of the polyhedra [lib] and against the affine map's determinant
+times the box cells' volumes (flat faces: exact; elementary geometry); the number of boundary faces
+of a box of nx x ny x nz cells, 2 (nx ny + nx nz + ny nz) (elementary counting); the contour's area
+against pyvista's ``contour`` of the polyhedra [lib] and the sphere's area 4 pi r^2; the droplet
+count against the one ball written.
+"""
+
+import numpy as np
+import pytest
+
+pv = pytest.importorskip("pyvista")
+
+from phasegauge import measure  # noqa: E402
+from phasegauge.analysis.interface import find_interface  # noqa: E402
+from phasegauge.io import Series  # noqa: E402
+from phasegauge.io.describe import describe_series  # noqa: E402
+from phasegauge.meshgen import grid_mesh  # noqa: E402
+from phasegauge.model.cells import FACES, JoinedPieces  # noqa: E402
+from phasegauge.model.mesh import Mesh  # noqa: E402
+
+
+def _polyhedral_grid(mesh, points, cut_layers=(), edge=None):
+    """The hexahedra of ``mesh`` written as VTK polyhedra (built here by hand, face stream and all).
+
+    The quad faces between x-layers ``i`` and ``i + 1`` for each ``i`` of ``cut_layers`` are written as
+    two triangles from both sides (cut along the diagonal from their lowest point number); ``edge``, a
+    pair of point numbers, gets a new point at its middle in every face that runs along it (those
+    faces become pentagons). Returns the grid and the number of cells that are no ordinary cell.
+    """
+    conn = mesh.blocks[0].connectivity
+    xs = np.unique(mesh.points[:, 0])  # the grid's x planes
+    points = np.asarray(points, dtype=float)
+    if edge is not None:
+        points = np.vstack([points, points[list(edge)].mean(axis=0)])
+    middle = len(points) - 1
+    stream, odd = [], 0
+    for k, row in enumerate(conn):
+        faces, plain = [], True
+        for f in FACES["hexahedron"]:
+            face = [int(p) for p in row[list(f)]]
+            x = mesh.points[face, 0]
+            between = np.ptp(x) == 0 and any(abs(x[0] - xs[i + 1]) < 1e-12 for i in cut_layers)
+            if edge is not None:
+                for j in range(4):
+                    a, b = face[j], face[(j + 1) % 4]
+                    if {a, b} == set(edge):
+                        face = face[:j + 1] + [middle] + face[j + 1:]
+                        plain = False
+                        break
+            if between:
+                i = face.index(min(face))
+                a, b, c, d = face[i:] + face[:i]
+                faces += [[a, b, c], [a, c, d]]
+                plain = False
+            else:
+                faces.append(face)
+        odd += not plain
+        cell = [len(faces)] + [x for f in faces for x in [len(f), *f]]
+        stream += [len(cell), *cell]
+    types = np.full(len(conn), pv.CellType.POLYHEDRON, np.uint8)
+    return pv.UnstructuredGrid(np.array(stream), types, points), odd
+
+
+def _sheared_box(shape, seed=0):
+    mesh = grid_mesh(shape, kind="hexahedron", bounds=[(0, 1), (0, 2), (0, 0.5)], seed=seed)
+    rng = np.random.default_rng(seed)
+    A = np.eye(3) + 0.3 * rng.standard_normal((3, 3))
+    A[:, 0] *= np.sign(np.linalg.det(A))
+    return mesh, A
+
+
+def _point_near(mesh, x):
+    return int(np.argmin(np.linalg.norm(mesh.points - np.asarray(x), axis=1)))
+
+
+def test_polyhedra_of_other_shapes_are_coned_beside_whole_cells(tmp_path):
+    mesh, A = _sheared_box((4, 3, 5))
+    edge = (_point_near(mesh, (0.75, 2 / 3, 0.2)), _point_near(mesh, (0.75, 2 / 3, 0.3)))  # inside: 4 cells
+    grid, odd = _polyhedral_grid(mesh, mesh.points @ A.T, cut_layers=(0,), edge=edge)
+    assert odd == 3 * 5 * 2 + 4
+    grid.cell_data["id"] = np.arange(mesh.n_cells, dtype=float)
+    path = str(tmp_path / "mixed.vtu")
+    grid.save(path)
+    step = Series(path).read(0)
+    read = step.mesh
+    assert set(read.cell_type_counts) == {"hexahedron", "pyramid", "tetra"}
+    assert read.cell_type_counts["hexahedron"] == mesh.n_cells - odd and read.n_whole_cells == mesh.n_cells
+    assert read.inverted_cells == 0 and np.all(read.signed_measures > 0)
+    # every piece keeps its polyhedron's cell values; the whole cells' volumes: exact and VTK's [lib]
+    ids = step.fields.cell_data["id"].astype(int)
+    whole = np.bincount(ids, weights=read.cell_measures, minlength=mesh.n_cells)
+    np.testing.assert_allclose(whole, abs(np.linalg.det(A)) * mesh.cell_measures, rtol=1e-11)
+    np.testing.assert_allclose(whole, grid.compute_cell_sizes()["Volume"], rtol=1e-11)
+    pairs = np.unique(np.stack([read.cell_parents, ids]), axis=1)  # whole cells and file cells: one to one
+    assert pairs.shape[1] == np.unique(pairs[0]).size == np.unique(pairs[1]).size == mesh.n_cells
+    # conforming: no inner face left unpaired (the box's own faces only, all quads), one piece
+    corners, owners = read.boundary_faces
+    assert len(owners) == 2 * (4 * 3 + 4 * 5 + 3 * 5) and np.all(corners[:, 0] >= 0)
+    from scipy.sparse.csgraph import connected_components
+
+    assert connected_components(read.adjacency("face"), directed=False)[0] == 1
+    words = describe_series(path)["cells_read_as"]
+    assert "read as the ordinary cells their faces make" in words and f"the other {odd} read as" in words
+
+
+def test_mesh_numbers_pieces_joined_across_two_blocks():
+    points = np.random.default_rng(0).random((12, 3))
+    blocks = [("hexahedron", np.arange(8)[None]), ("pyramid", np.array([[0, 1, 2, 3, 8]] * 3)),
+              ("tetra", np.array([[0, 1, 2, 9]] * 2))]
+    mesh = Mesh(points, blocks, pieces=[None, np.array([0, 0, 1]), JoinedPieces(np.array([1, 2]))])
+    # the hexahedron whole cell 0; the pyramids' cells 1, 1, 2 and the tetrahedra's 2, 3 numbered alike
+    assert mesh.cell_parents.tolist() == [0, 1, 1, 2, 2, 3] and mesh.n_whole_cells == 4
+    apart = Mesh(points, blocks, pieces=[None, np.array([0, 0, 1]), np.array([1, 2])])
+    assert apart.cell_parents.tolist() == [0, 1, 1, 2, 4, 5]
+
+
+def test_contour_and_droplet_across_coned_polyhedra(tmp_path):
+    mesh = grid_mesh((10, 10, 10), kind="hexahedron", seed=2)
+    X = mesh.points
+    r = np.linalg.norm(X - 0.5, axis=1)
+    grid, odd = _polyhedral_grid(mesh, X, cut_layers=(4, 5))  # three layers of cells through the ball
+    assert odd == 300
+    grid.point_data["c"] = 0.5 - (r - 0.3) / 0.2  # nearly linear across a cell: the contours near alike
+    grid.point_data["ball"] = 0.5 * (1 - np.tanh((r - 0.3) / 0.05))
+    (tmp_path / "run").mkdir()
+    path = str(tmp_path / "run" / "ball.vtu")
+    grid.save(path)
+    step = Series(path).read(0)
+    assert set(step.mesh.cell_type_counts) == {"hexahedron", "pyramid", "tetra"}
+    area = find_interface(step.mesh, step.fields.point_data["c"]).size
+    iso = grid.contour([0.5], scalars="c")  # VTK's contour of its polyhedra [lib]
+    reference = float(np.abs(iso.compute_cell_sizes(length=False, area=True, volume=False)["Area"]).sum())
+    assert area == pytest.approx(reference, rel=1e-2)
+    assert 0.95 * 4 * np.pi * 0.09 < area < 4 * np.pi * 0.09  # the sphere's area, from below
+    steps = measure(str(tmp_path / "run"), "ball").steps
+    assert steps["droplet_count"].iloc[0] == 1
+
+
+def test_a_series_cones_its_polyhedra_once(tmp_path, monkeypatch):
+    from phasegauge.model import polyhedra
+
+    mesh = grid_mesh((3, 3, 3), kind="hexahedron", seed=6)
+    grid, odd = _polyhedral_grid(mesh, mesh.points, cut_layers=(0,))
+    assert odd == 18
+    for k in range(3):
+        grid.point_data["c"] = grid.points[:, 0] * (k + 1) / 3
+        grid.save(str(tmp_path / f"step_{k}.vtu"))
+    calls, original = [], polyhedra.split_polyhedra
+    monkeypatch.setattr(polyhedra, "split_polyhedra", lambda *a, **k: calls.append(1) or original(*a, **k))
+    series = Series(str(tmp_path))
+    steps = [series.read(k) for k in range(3)]
+    assert len(calls) == 1 and steps[0].mesh is steps[2].mesh
+    # each step's own point values (the centres as their corners' means: a linear field, exact)
+    for k, step in enumerate(steps):
+        np.testing.assert_allclose(step.fields.point_data["c"], step.mesh.points[:, 0] * (k + 1) / 3, atol=1e-14)
