@@ -458,13 +458,16 @@ def _ordinary_cells(points, made: list, *, where: str = ""):
             counts[shape.cell_type] = counts.get(shape.cell_type, 0) + int(shape.cells.size)
             found[shape.cells] = True
         if not found.all():
-            rest.append((_cells_of_stream(stream, ~found), rows[~found]))
+            rest.append((stream, rows, found))
     listed = ", ".join(f"{n} {_NAMES[t]}" for t, n in counts.items())
     if not rest:
         return OrdinaryCells(blocks, f"{sum(counts.values())} polyhedral cells (VTK 42) read as the ordinary cells "
                                      f"their faces make: {listed}")
     if not blocks:
         return None
+    # the other polyhedra's faces (a stream of which none is an ordinary cell taken as it is)
+    rest = [(stream if not found.any() else _cells_of_stream(stream, ~found), rows[~found])
+            for stream, rows, found in rest]
     rows = np.concatenate([r for _, r in rest]).astype(np.int64)
     split = split_polyhedra(points, *_join_streams(rest), rows.size, where=where, cell_ids=rows, pyramids=True)
     words = f"{sum(counts.values()) + rows.size} polyhedral cells (VTK 42): "
