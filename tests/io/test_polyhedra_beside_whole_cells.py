@@ -9,8 +9,10 @@ Outside checks: the files are written by VTK itself (pyvista) [lib]; whole-cell 
 pyvista's ``compute_cell_sizes`` of the polyhedra [lib] and against the affine map's determinant
 times the box cells' volumes (flat faces: exact; elementary geometry); the number of boundary faces
 of a box of nx x ny x nz cells, 2 (nx ny + nx nz + ny nz) (elementary counting); the contour's area
-against pyvista's ``contour`` of the polyhedra [lib] and the sphere's area 4 pi r^2; the droplet
-count against the one ball written.
+against pyvista's ``contour`` of the polyhedra [lib] and the sphere's area 4 pi r^2; a sphere's
+contour closed (every edge of a closed surface is shared by two triangles: elementary topology; it
+catches faces cut otherwise from their two sides, which leave no area behind); the volume of the unit
+box; the droplet count against the one ball written.
 """
 
 import numpy as np
@@ -27,27 +29,40 @@ from phasegauge.model.cells import FACES, JoinedPieces  # noqa: E402
 from phasegauge.model.mesh import Mesh  # noqa: E402
 
 
-def _polyhedral_grid(mesh, points, cut_layers=(), edge=None):
-    """The hexahedra of ``mesh`` written as VTK polyhedra (built here by hand, face stream and all).
+def _polyhedral_grid(mesh, points, x_cells, cut_layers=(), edge=None, native=(), quad=None):
+    """The hexahedra of ``mesh`` (a grid of ``x_cells`` layers along x) written as VTK polyhedra,
+    built here by hand, face stream and all.
 
-    The quad faces between x-layers ``i`` and ``i + 1`` for each ``i`` of ``cut_layers`` are written as
-    two triangles from both sides (cut along the diagonal from their lowest point number); ``edge``, a
-    pair of point numbers, gets a new point at its middle in every face that runs along it (those
-    faces become pentagons). Returns the grid and the number of cells that are no ordinary cell.
+    The faces shared by a cell of x-layer ``i`` and one of layer ``i + 1`` for each ``i`` of
+    ``cut_layers`` are written as two triangles from both sides (cut along the diagonal from their
+    lowest point number); ``edge``, a pair of point numbers, gets a new point at its middle in every
+    face that runs along it (those faces become pentagons). The cells ``native`` are written as VTK
+    hexahedra (12) instead, and ``quad`` (four point numbers), when given, as a VTK quad (9) after the
+    cells. Returns the grid and the number of cells that are no ordinary cell.
     """
     conn = mesh.blocks[0].connectivity
-    xs = np.unique(mesh.points[:, 0])  # the grid's x planes
+    lo, hi = mesh.points[:, 0].min(), mesh.points[:, 0].max()
+    layer = np.minimum((x_cells * (mesh.cell_centroids[:, 0] - lo) / (hi - lo)).astype(int), x_cells - 1)
+    sides = {}  # each face's cells' layers
+    for k, row in enumerate(conn):
+        for f in FACES["hexahedron"]:
+            sides.setdefault(tuple(sorted(row[list(f)])), []).append(layer[k])
+    cut = {key for key, seen in sides.items()
+           if len(seen) == 2 and min(seen) in cut_layers and max(seen) == min(seen) + 1}
     points = np.asarray(points, dtype=float)
     if edge is not None:
         points = np.vstack([points, points[list(edge)].mean(axis=0)])
     middle = len(points) - 1
-    stream, odd = [], 0
+    stream, types, odd = [], [], 0
     for k, row in enumerate(conn):
+        if k in native:
+            stream += [8, *row]
+            types.append(pv.CellType.HEXAHEDRON)
+            continue
         faces, plain = [], True
         for f in FACES["hexahedron"]:
             face = [int(p) for p in row[list(f)]]
-            x = mesh.points[face, 0]
-            between = np.ptp(x) == 0 and any(abs(x[0] - xs[i + 1]) < 1e-12 for i in cut_layers)
+            between = tuple(sorted(face)) in cut
             if edge is not None:
                 for j in range(4):
                     a, b = face[j], face[(j + 1) % 4]
@@ -65,8 +80,11 @@ def _polyhedral_grid(mesh, points, cut_layers=(), edge=None):
         odd += not plain
         cell = [len(faces)] + [x for f in faces for x in [len(f), *f]]
         stream += [len(cell), *cell]
-    types = np.full(len(conn), pv.CellType.POLYHEDRON, np.uint8)
-    return pv.UnstructuredGrid(np.array(stream), types, points), odd
+        types.append(pv.CellType.POLYHEDRON)
+    if quad is not None:
+        stream += [4, *quad]
+        types.append(pv.CellType.QUAD)
+    return pv.UnstructuredGrid(np.array(stream), np.array(types, np.uint8), points), odd
 
 
 def _sheared_box(shape, seed=0):
@@ -81,10 +99,20 @@ def _point_near(mesh, x):
     return int(np.argmin(np.linalg.norm(mesh.points - np.asarray(x), axis=1)))
 
 
+def _open_edges(contour) -> int:
+    """Edges of the contour's triangles used by one triangle only (its vertices merged where they
+    coincide to 1e-9): none on a closed surface, where every edge is shared by two."""
+    _, vertex = np.unique(np.round(contour.points, 9), axis=0, return_inverse=True)
+    t = vertex.ravel()[contour.elements]
+    edges = np.sort(np.concatenate([t[:, [0, 1]], t[:, [1, 2]], t[:, [2, 0]]]), axis=1)
+    _, uses = np.unique(edges, axis=0, return_counts=True)
+    return int(np.count_nonzero(uses == 1))
+
+
 def test_polyhedra_of_other_shapes_are_coned_beside_whole_cells(tmp_path):
     mesh, A = _sheared_box((4, 3, 5))
     edge = (_point_near(mesh, (0.75, 2 / 3, 0.2)), _point_near(mesh, (0.75, 2 / 3, 0.3)))  # inside: 4 cells
-    grid, odd = _polyhedral_grid(mesh, mesh.points @ A.T, cut_layers=(0,), edge=edge)
+    grid, odd = _polyhedral_grid(mesh, mesh.points @ A.T, 4, cut_layers=(0,), edge=edge)
     assert odd == 3 * 5 * 2 + 4
     grid.cell_data["id"] = np.arange(mesh.n_cells, dtype=float)
     path = str(tmp_path / "mixed.vtu")
@@ -108,7 +136,7 @@ def test_polyhedra_of_other_shapes_are_coned_beside_whole_cells(tmp_path):
 
     assert connected_components(read.adjacency("face"), directed=False)[0] == 1
     words = describe_series(path)["cells_read_as"]
-    assert "read as the ordinary cells their faces make" in words and f"the other {odd} read as" in words
+    assert "read as the ordinary cells their faces make" in words and f"the other {odd} as" in words
 
 
 def test_mesh_numbers_pieces_joined_across_two_blocks():
@@ -126,7 +154,7 @@ def test_contour_and_droplet_across_coned_polyhedra(tmp_path):
     mesh = grid_mesh((10, 10, 10), kind="hexahedron", seed=2)
     X = mesh.points
     r = np.linalg.norm(X - 0.5, axis=1)
-    grid, odd = _polyhedral_grid(mesh, X, cut_layers=(4, 5))  # three layers of cells through the ball
+    grid, odd = _polyhedral_grid(mesh, X, 10, cut_layers=(4, 5))  # three layers of cells through the ball
     assert odd == 300
     grid.point_data["c"] = 0.5 - (r - 0.3) / 0.2  # nearly linear across a cell: the contours near alike
     grid.point_data["ball"] = 0.5 * (1 - np.tanh((r - 0.3) / 0.05))
@@ -135,7 +163,11 @@ def test_contour_and_droplet_across_coned_polyhedra(tmp_path):
     grid.save(path)
     step = Series(path).read(0)
     assert set(step.mesh.cell_type_counts) == {"hexahedron", "pyramid", "tetra"}
-    area = find_interface(step.mesh, step.fields.point_data["c"]).size
+    contour = find_interface(step.mesh, step.fields.point_data["c"])
+    area = contour.size
+    # closed across the flat faces between hexahedra and coned polyhedra (each cut once for both sides)
+    assert _open_edges(contour) == 0
+    assert _open_edges(find_interface(step.mesh, step.fields.point_data["c"], level=0.5123)) == 0
     iso = grid.contour([0.5], scalars="c")  # VTK's contour of its polyhedra [lib]
     reference = float(np.abs(iso.compute_cell_sizes(length=False, area=True, volume=False)["Area"]).sum())
     assert area == pytest.approx(reference, rel=1e-2)
@@ -148,7 +180,7 @@ def test_a_series_cones_its_polyhedra_once(tmp_path, monkeypatch):
     from phasegauge.model import polyhedra
 
     mesh = grid_mesh((3, 3, 3), kind="hexahedron", seed=6)
-    grid, odd = _polyhedral_grid(mesh, mesh.points, cut_layers=(0,))
+    grid, odd = _polyhedral_grid(mesh, mesh.points, 3, cut_layers=(0,))
     assert odd == 18
     for k in range(3):
         grid.point_data["c"] = grid.points[:, 0] * (k + 1) / 3
@@ -161,3 +193,43 @@ def test_a_series_cones_its_polyhedra_once(tmp_path, monkeypatch):
     # each step's own point values (the centres as their corners' means: a linear field, exact)
     for k, step in enumerate(steps):
         np.testing.assert_allclose(step.fields.point_data["c"], step.mesh.points[:, 0] * (k + 1) / 3, atol=1e-14)
+
+
+def test_bent_faces_between_hexahedra_and_coned_polyhedra_conform(tmp_path):
+    # a jittered grid (bent inner faces): its last three x-layers written as VTK hexahedra, the first
+    # three as polyhedra, those of x-layers 1 and 2 no ordinary cells (their shared faces written as two
+    # triangles); a boundary quad beside (a 2D cell, left out of the volume mesh)
+    mesh = grid_mesh((6, 6, 6), kind="hexahedron", jitter=0.3, seed=4)
+    native = set(np.flatnonzero(mesh.cell_centroids[:, 0] > 0.5).tolist())
+    assert len(native) == 108
+    face = mesh.blocks[0].connectivity[0][list(FACES["hexahedron"][0])]  # the first cell's bottom (z = 0)
+    grid, odd = _polyhedral_grid(mesh, mesh.points, 6, cut_layers=(1,), native=native, quad=face)
+    assert odd == 72
+    X = mesh.points
+    r = np.linalg.norm(X - [0.45, 0.5, 0.5], axis=1)
+    grid.point_data["c"] = 0.5 * (1 - np.tanh((r - 0.3) / 0.08))
+    grid.cell_data["id"] = np.arange(grid.n_cells, dtype=float)
+    path = str(tmp_path / "bent.vtu")
+    grid.save(path)
+    step = Series(path).read(0)
+    read = step.mesh
+    assert read.cell_type_counts["hexahedron"] == mesh.n_cells - odd and read.n_whole_cells == mesh.n_cells
+    assert read.boundary_type_counts == {"quad": 1} and read.inverted_cells == 0
+    ids = step.fields.cell_data["id"].astype(int)
+    pairs = np.unique(np.stack([read.cell_parents, ids]), axis=1)
+    assert pairs.shape[1] == np.unique(pairs[0]).size == np.unique(pairs[1]).size == mesh.n_cells
+    assert set(pairs[1]) == set(range(mesh.n_cells))  # the quad (id n_cells) is no volume cell
+    # the unit box (outer faces flat: the pieces' and the hexahedra's volumes add up to it exactly)
+    assert read.total_measure == pytest.approx(1.0, rel=1e-12)
+    corners, owners = read.boundary_faces
+    assert len(owners) == 6 * 36 and np.all(corners[:, 0] >= 0)
+    # the sphere's contour is closed across the bent faces between the kinds (a level off the corners'
+    # values), and one droplet
+    for level in (0.5, 0.5123):
+        contour = find_interface(step.mesh, step.fields.point_data["c"], level=level)
+        assert contour.n_elements > 100 and _open_edges(contour) == 0
+    (tmp_path / "run").mkdir()
+    grid.save(str(tmp_path / "run" / "bent.vtu"))
+    assert measure(str(tmp_path / "run"), "c").steps["droplet_count"].iloc[0] == 1
+    words = describe_series(path)["cells_read_as"]
+    assert f"the other {odd} as" in words and f"the file's {len(native)} hexahedra" in words

@@ -17,10 +17,11 @@ reader (through pyvista, as the structured datasets are) and handed over as a me
   a whole cell is a quad on both sides, which the mesh groups as one face and cuts once; otherwise
 * polyhedra become the tetrahedra of :func:`phasegauge.model.polyhedra.split_polyhedra`
   (about their cell centres; quad faces cut along their shorter diagonal, larger faces about
-  a face centre); hexahedra, wedges and pyramids of the same file are split the same way, so
-  that a face they share with a polyhedron is cut alike from both sides (tetrahedra and every
-  other cell are kept as they are); beside convex point sets, which centre every hull face of
-  four or more corners, the quad faces are centred too (``diagonals=False``);
+  a face centre) when no cell is kept whole, or when convex point sets are beside them: then
+  hexahedra, wedges and pyramids of the same file are split the same way, so that a face they share
+  with a polyhedron is cut alike from both sides (tetrahedra and every other cell are kept as they
+  are), and the quad faces are centred, as the convex point sets centre every hull face of four or
+  more corners (``diagonals=False``);
 * the added centres become points; point fields there are the mean of the corners' values;
 * every tetrahedron keeps the cell values of the cell it comes from, so integrals of cell
   data are unchanged, and is marked as a piece of it (``raw.cell_pieces``, which the mesh
@@ -267,7 +268,8 @@ class PolyhedralRead:
     def split(self):
         """The polyhedra's split (:class:`~phasegauge.model.polyhedra.PolyhedraSplit`), or the
         ordinary cells they are (:class:`OrdinaryCells`) when every one is a tetrahedron, pyramid,
-        wedge or hexahedron written as faces (:mod:`phasegauge.model._polyhedron_shapes`)."""
+        wedge or hexahedron written as faces (:mod:`phasegauge.model._polyhedron_shapes`), or those
+        cells kept whole beside the others coned (:class:`MixedCells`)."""
         from ..model.polyhedra import split_polyhedra
 
         if self._split is None:
@@ -304,7 +306,7 @@ class PolyhedralRead:
             return self._ordinary_raw(split)
         if isinstance(split, MixedCells):
             return self._mixed_raw(split)
-        self._warn_inverted(split)
+        self._warn_inverted(split, stacklevel=4)
         rows = self._rows
         blocks = self._blocks + [("tetra", split.tetra)]
         points, point_data = self._with_centres(split)
@@ -331,11 +333,15 @@ class PolyhedralRead:
         raw.convex_point_sets = words if not note else f"{words}; {note}"
         return raw
 
-    def _warn_inverted(self, split) -> None:
-        if split.inverted_tetra:
-            warnings.warn(MeshWarning(f"{split.inverted_tetra} tetrahedra of the polyhedra's split have negative "
-                                      "volume (cells not star-shaped from their corner mean)", where=self.path),
-                          stacklevel=4)
+    def _warn_inverted(self, split, stacklevel: int) -> None:
+        """Warn when pieces of the split have negative volume (``stacklevel`` as ``warnings.warn`` takes it,
+        counted from here: the same caller from either path)."""
+        pieces = [f"{n} {name}" for n, name in ((split.inverted_tetra, "tetrahedra"),
+                                                (split.inverted_pyramids, "pyramids")) if n]
+        if pieces:
+            warnings.warn(MeshWarning(f"{' and '.join(pieces)} of the polyhedra's split have negative volume "
+                                      "(cells not star-shaped from their corner mean)", where=self.path),
+                          stacklevel=stacklevel)
 
     def _with_centres(self, split) -> tuple:
         """The points and the numeric point fields with the split's added centres after the points."""
@@ -357,11 +363,13 @@ class PolyhedralRead:
         from ..model.cells import JoinedPieces
 
         split = mixed.split
-        self._warn_inverted(split)
+        self._warn_inverted(split, stacklevel=5)
         pieces = (("pyramid", split.pyramids, split.pyramid_source), ("tetra", split.tetra, split.source))
         coned = [(name, cells, source) for name, cells, source in pieces if len(cells)]
         whole = self._blocks + [(name, cells) for name, cells, _ in mixed.blocks]
-        rows_of = self._rows_of + [rows for _, _, rows in mixed.blocks] + [mixed.rows[source] for *_, source in coned]
+        # 8 bytes a piece: only if used
+        rows_of = (self._rows_of + [rows for _, _, rows in mixed.blocks] + [mixed.rows[source] for *_, source in coned]
+                   if self._numeric_cell_data() else [])
         points, point_data = self._with_centres(split)
         raw = new_mesh(points, whole + [(name, cells) for name, cells, _ in coned], point_data=point_data,
                        cell_data=self._cell_data_of(rows_of), field_data=self.field_data)
@@ -408,13 +416,14 @@ class OrdinaryCells:
 
 @dataclass(frozen=True, eq=False)
 class MixedCells:
-    """The cells of a file of which some polyhedra are ordinary cells written as faces and some not.
+    """The cells of a file that has polyhedra of other shapes beside cells kept whole: polyhedra that
+    are ordinary cells written as faces, or the file's own hexahedra, wedges and pyramids.
 
     Attributes
     ----------
     blocks : list of (str, ndarray, ndarray)
         As :attr:`OrdinaryCells.blocks`: the file's hexahedra, wedges and pyramids, then the
-        polyhedra that are ordinary cells; kept whole.
+        polyhedra that are ordinary cells (if any); kept whole.
     split : PolyhedraSplit
         The other polyhedra as pyramids (their quad faces) and tetrahedra (their triangles, and the
         triangles about the centres of larger faces) joined to their cell centres
@@ -470,11 +479,15 @@ def _ordinary_cells(points, made: list, *, where: str = ""):
             for stream, rows, found in rest]
     rows = np.concatenate([r for _, r in rest]).astype(np.int64)
     split = split_polyhedra(points, *_join_streams(rest), rows.size, where=where, cell_ids=rows, pyramids=True)
-    words = f"{sum(counts.values()) + rows.size} polyhedral cells (VTK 42): "
+    coned = f"{len(split.pyramids)} pyramids and {len(split.tetra)} tetrahedra about their cell centres"
     if counts:
-        words += f"{listed} read as the ordinary cells their faces make; "
-    words += (f"the other {rows.size} read as {len(split.pyramids)} pyramids and {len(split.tetra)} tetrahedra "
-              "about their cell centres")
+        words = (f"{sum(counts.values()) + rows.size} polyhedral cells (VTK 42): {listed} read as the ordinary cells "
+                 f"their faces make, the other {rows.size} as {coned}")
+    else:
+        words = f"{rows.size} polyhedral cells (VTK 42) read as {coned}"
+    own = sum(len(block[1]) for _, _, block in made if block is not None)
+    if own:
+        words += f"; the file's {own} hexahedra, wedges and pyramids kept whole"
     return MixedCells(blocks, split, rows, words)
 
 

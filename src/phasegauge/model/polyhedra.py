@@ -99,6 +99,8 @@ class PolyhedraSplit:
         Cells whose faces were listed with inward normals (turned over).
     inverted_tetra : int
         Tetrahedra of negative volume after the turning (cells not star-shaped from their centre).
+    inverted_pyramids : int
+        Pyramids (``pyramids=True``) of negative volume after the turning.
     points : ndarray of shape (n_points + n_centres, 3), optional
         The input points followed by the centres (:meth:`centre_values` of the points), kept
         so that later steps on the same points and faces do not compute them again.
@@ -122,6 +124,7 @@ class PolyhedraSplit:
     n_face_centres: int
     reversed_cells: int = 0
     inverted_tetra: int = 0
+    inverted_pyramids: int = 0
     points: np.ndarray | None = None
     neighbours: np.ndarray | None = None
     pyramids: np.ndarray | None = None
@@ -480,12 +483,10 @@ def split_polyhedra(points: np.ndarray, face_points, face_offsets, face_cell, n_
             flip = np.flatnonzero(turn[pyramid_source])
             pyramid[flip, 1], pyramid[flip, 3] = pyramid[flip, 3], pyramid[flip, 1].copy()
             pyramid_volume[flip] = -pyramid_volume[flip]
-    inverted = int(np.count_nonzero(volume < 0))
-    if pyramid is not None:
-        inverted += int(np.count_nonzero(pyramid_volume < 0))
     done = PolyhedraSplit(tetra, source, centre_points, centre_offsets, n_points, n_face_centres,
-                          reversed_cells=int(np.count_nonzero(turn)), inverted_tetra=inverted, points=Y,
-                          neighbours=neighbours, pyramids=pyramid, pyramid_source=pyramid_source)
+                          reversed_cells=int(np.count_nonzero(turn)), inverted_tetra=int(np.count_nonzero(volume < 0)),
+                          inverted_pyramids=0 if pyramid is None else int(np.count_nonzero(pyramid_volume < 0)),
+                          points=Y, neighbours=neighbours, pyramids=pyramid, pyramid_source=pyramid_source)
     return done
 
 
