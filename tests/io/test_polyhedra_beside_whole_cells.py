@@ -233,3 +233,24 @@ def test_bent_faces_between_hexahedra_and_coned_polyhedra_conform(tmp_path):
     assert measure(str(tmp_path / "run"), "c").steps["droplet_count"].iloc[0] == 1
     words = describe_series(path)["cells_read_as"]
     assert f"the other {odd} as" in words and f"the file's {len(native)} hexahedra" in words
+
+
+def test_pieces_of_negative_volume_are_reported_by_kind(tmp_path):
+    # an L-shaped prism (not star-shaped from its corner mean) beside a hexahedron written as one:
+    # some of its pyramids and tetrahedra turn over, and the warning counts each kind
+    from phasegauge.errors import MeshWarning
+
+    ell = [(0, 0), (3, 0), (3, 1), (1, 1), (1, 3), (0, 3)]
+    points = np.array([(x, y, 0.0) for x, y in ell] + [(x, y, 1.0) for x, y in ell]
+                      + [(4, 0, 0), (4, 1, 0), (4, 0, 1), (4, 1, 1)], dtype=float)
+    faces = [[5, 4, 3, 2, 1, 0], [6, 7, 8, 9, 10, 11]] + [[i, (i + 1) % 6, (i + 1) % 6 + 6, i + 6] for i in range(6)]
+    cell = [len(faces)] + [x for f in faces for x in [len(f), *f]]
+    stream = [len(cell), *cell, 8, 1, 12, 13, 2, 7, 14, 15, 8]
+    path = str(tmp_path / "ell.vtu")
+    pv.UnstructuredGrid(np.array(stream), np.array([42, 12], np.uint8), points).save(path)
+    with pytest.warns(MeshWarning, match=r"\d+ tetrahedra and \d+ pyramids of the polyhedra's split have negative"):
+        read = Series(path).read(0).mesh
+    assert read.cell_type_counts["hexahedron"] == 1 and read.n_whole_cells == 2
+    with pytest.warns(MeshWarning):  # (read again)
+        words = describe_series(path)["cells_read_as"]
+    assert "the file's 1 hexahedra, wedges and pyramids kept whole" in words
