@@ -124,7 +124,7 @@ def ordinary_shapes(points, face_points, face_offsets, face_cell, n_cells: int, 
         conn = np.empty((cells.size, base_size + from_q), dtype=np.int64)
         found = np.ones(cells.size, dtype=bool)
         for a in range(0, cells.size, _CHUNK):  # a chunk's temporaries stay small beside the mesh
-            part, ok = _shape_cells(X, face_points, face_offsets, first_face[cells[a:a + _CHUNK]], tri + quad,
+            part, ok = _shape_cells(face_points, face_offsets, first_face[cells[a:a + _CHUNK]], tri + quad,
                                     base_size, from_q, name)
             if every and not ok.all():
                 return None
@@ -133,12 +133,16 @@ def ordinary_shapes(points, face_points, face_offsets, face_cell, n_cells: int, 
         if not found.all():
             conn, cells = conn[found], cells[found]
         if cells.size:
+            # in the order of positive measure: measured for the whole block at once (the measure reads
+            # the coordinates as contiguous columns, made once a call)
+            turned = _signed_volumes(X, conn, name) < 0
+            conn[turned] = conn[turned][:, list(_TURNED[name])]
             blocks.append(ShapeBlock(name, conn, cells))
     return blocks
 
 
-def _shape_cells(X, face_points, face_offsets, first, n_faces: int, base_size: int, from_q: int, name: str):
-    """Corner lists (positive measure) of cells of one face signature, and whether each is the
+def _shape_cells(face_points, face_offsets, first, n_faces: int, base_size: int, from_q: int, name: str):
+    """Corner lists of cells of one face signature (either orientation), and whether each is the
     cell ``name`` (the lists of the others mean nothing)."""
     k = first.size
     faces = first[:, None] + np.arange(n_faces)  # (k, F) face numbers
@@ -163,9 +167,6 @@ def _shape_cells(X, face_points, face_offsets, first, n_faces: int, base_size: i
     conn = np.concatenate([p, q[:, :from_q]], axis=1)
     ordered = np.sort(conn, axis=1)
     ok = ~np.any(ordered[:, 1:] == ordered[:, :-1], axis=1) & _same_faces(loops, fsize, conn, name)
-    conn[~ok] = 0  # (a corner twice, or -1: nothing to measure)
-    turned = _signed_volumes(X, conn, name) < 0
-    conn[turned] = conn[turned][:, list(_TURNED[name])]
     return conn, ok
 
 
