@@ -12,6 +12,8 @@ Runs, one configuration at a time in fresh child processes (the jobs of ``bench_
 * ``polyhedron-mixed``: its ``split`` folder (the same with one cell of another shape, which alone
   is coned into pyramids and tetrahedra, the others read as hexahedra), ``measure`` only, beside the
   same baseline;
+* ``polyhedron-band``: its ``band`` folder (a fifth of the cells, a band through the box, no
+  ordinary cells: they are coned, the others read as hexahedra), ``measure`` only;
 * ``polyhedron-split``: its ``triangulated`` folder (every face written as two triangles, so no
   cell is an ordinary one and every one is split into tetrahedra, as the ``polyhedron`` rows of
   rounds before the fourteenth and the ``polyhedron-split`` rows of the fourteenth were), ``measure``
@@ -25,7 +27,8 @@ from ``previous_round.json`` (figures copied from ``RESULTS.md``, each with its 
 Usage::
 
     PYTHONPATH=src python benchmarks/bench_kinds.py [--sizes 0.25,1,4] [--steps 5]
-        [--kinds tetra,grid,hexahedron,polyhedron,polyhedron-mixed,polyhedron-split] [--skip polyhedron-split:4]
+        [--kinds tetra,grid,hexahedron,polyhedron,polyhedron-mixed,polyhedron-band,polyhedron-split]
+        [--skip polyhedron-split:4]
         [--json OUT]
 
 ``--skip KIND:SIZE`` leaves a series out (say why in RESULTS.md: the polyhedra at 4M cells need
@@ -49,9 +52,10 @@ import bench_measure  # noqa: E402  (the jobs and series of the per-kind benchma
 import bench_polyhedra  # noqa: E402
 
 HERE = os.path.dirname(os.path.abspath(__file__))
-KINDS = ("tetra", "grid", "hexahedron", "polyhedron", "polyhedron-mixed", "polyhedron-split")
+KINDS = ("tetra", "grid", "hexahedron", "polyhedron", "polyhedron-mixed", "polyhedron-band", "polyhedron-split")
 #: the folder of ``bench_polyhedra.py`` each polyhedral kind reads
-POLYHEDRAL_SERIES = {"polyhedron": "polyhedra", "polyhedron-mixed": "split", "polyhedron-split": "triangulated"}
+POLYHEDRAL_SERIES = {"polyhedron": "polyhedra", "polyhedron-mixed": "split", "polyhedron-band": "band",
+                     "polyhedron-split": "triangulated"}
 COLUMNS = ("kind", "cells", "baseline s (cpu)", "measure s (cpu)", "measure / baseline wall (cpu)",
            "first step s", "later steps s", "us per cell-step", "peak / step bytes",
            "previous: measure / baseline", "previous: us per cell-step", "previous: peak / step bytes")
@@ -70,7 +74,7 @@ def run_measure_kind(folder: str, kind: str, millions: float, steps: int) -> dic
 def run_polyhedra(folder: str, millions: float, steps: int, kind: str = "polyhedron", baselines=None) -> dict:
     """``bench_polyhedra.py``'s baseline and measure jobs on the polyhedra (``polyhedron``: hexahedra
     written as polyhedra, read as hexahedra; ``polyhedron-mixed``: one cell of another shape among them;
-    ``polyhedron-split``: every face as two triangles, so all are split); the figures of one row. The
+    ``polyhedron-band``: a fifth of them of another shape; ``polyhedron-split``: every face as two triangles, so all are split); the figures of one row. The
     baseline runs once per size (``baselines``)."""
     info = bench_polyhedra.build(folder, millions, steps)
     series = info[POLYHEDRAL_SERIES[kind]]

@@ -13,7 +13,11 @@ of about ``--sizes`` million hexahedra, with the droplet field ``c`` of
   polyhedra of other shapes (a file whose polyhedra are all hexahedra is read as hexahedra);
 * ``triangulated``: the polyhedra with every face written as two triangles (cut along the diagonal
   from its lowest point number, alike from both sides): no cell is an ordinary cell, so the reader
-  splits every one into tetrahedra about its centre, as in a file of polyhedra of other shapes.
+  splits every one into tetrahedra about its centre, as in a file of polyhedra of other shapes;
+* ``band``: the polyhedra with the faces between the x-layers of a band through the middle of the
+  box (about a fifth of the cells) written as two triangles alike: those cells are coned (pyramids
+  and tetrahedra about their centres), the others read as hexahedra, as in a hexahedral mesh with a
+  region of polyhedra.
 
 Then times, each configuration in a fresh child process, after one untimed read of the files:
 
@@ -52,7 +56,7 @@ from bench_measure import SECTIONS, _cpu_seconds, baseline_step, droplet_field  
 
 CONFIGS = ("baseline", "polyhedra", "hexahedra")
 #: the series written (see the module notes)
-SERIES = ("polyhedra", "hexahedra", "split", "triangulated")
+SERIES = ("polyhedra", "hexahedra", "split", "triangulated", "band")
 
 
 def build(folder: str, millions: float, steps: int) -> dict:
@@ -72,7 +76,7 @@ def build(folder: str, millions: float, steps: int) -> dict:
         if len(done) == len(SERIES):
             return info
     mesh = grid_mesh((n, n, n), kind="hexahedron", jitter=0.2, seed=1)
-    makers = {"polyhedra": to_polyhedral_grid, "split": _one_odd_cell, "triangulated": _triangulated,
+    makers = {"polyhedra": to_polyhedral_grid, "split": _one_odd_cell, "triangulated": _triangulated, "band": _band,
               "hexahedra": lambda m: pyvista.UnstructuredGrid({pyvista.CellType.HEXAHEDRON: m.blocks[0].connectivity},
                                                               m.points)}
     for name in SERIES:
@@ -128,6 +132,47 @@ def _triangulated(mesh):
             columns += [np.full(n, 3), *tri]
     stream = np.column_stack(columns).ravel().astype(np.int64)
     return pyvista.UnstructuredGrid(stream, np.full(n, pyvista.CellType.POLYHEDRON, dtype=np.uint8), mesh.points)
+
+
+def _band(mesh, share: float = 0.2):
+    """The mesh's hexahedra as polyhedra, the faces between the x-layers of a band of about ``share`` of
+    the cells (through the middle) as two triangles each, cut alike from both sides."""
+    import pyvista
+
+    from phasegauge.model.cells import FACES
+
+    conn = mesh.blocks[0].connectivity
+    n_cells = len(conn)
+    layers = int(round(n_cells ** (1.0 / 3.0)))
+    lo, hi = mesh.points[:, 0].min(), mesh.points[:, 0].max()
+    layer = np.minimum((layers * (mesh.cell_centroids[:, 0] - lo) / (hi - lo)).astype(int), layers - 1)
+    first = int(round(layers * (0.5 - share / 2)))
+    last = first + max(1, int(round(layers * share))) - 1  # faces between layers first..last cut
+    faces = FACES["hexahedron"]
+    plus, minus = faces.index((1, 2, 6, 5)), faces.index((3, 0, 4, 7))  # the +x and -x faces
+    cut = np.zeros((n_cells, len(faces)), dtype=bool)
+    cut[:, plus] = (layer >= first) & (layer < last)
+    cut[:, minus] = (layer > first) & (layer <= last)
+    sizes = np.where(cut, 8, 5)  # a face's entries: 4 and its corners, or 3, a, b, c, 3, a, c, d
+    length = 2 + sizes.sum(axis=1)  # each cell's: its length and face count, then its faces
+    start = np.concatenate([[0], np.cumsum(length + 1)[:-1]])  # (the cell's length before it)
+    stream = np.empty(int((length + 1).sum()), dtype=np.int64)
+    stream[start] = length
+    stream[start + 1] = len(faces) + cut.sum(axis=1)
+    at = start + 2
+    for j, face in enumerate(faces):
+        loop = conn[:, list(face)]
+        whole, split = ~cut[:, j], cut[:, j]
+        rows = np.column_stack([np.full(int(whole.sum()), 4), loop[whole]])
+        stream[at[whole][:, None] + np.arange(5)] = rows
+        q = loop[split]
+        low = np.argmin(q, axis=1)
+        a, b, c, d = (q[np.arange(len(q)), (low + k) % 4] for k in range(4))
+        three = np.full(len(q), 3)
+        stream[at[split][:, None] + np.arange(8)] = np.column_stack([three, a, b, c, three, a, c, d])
+        at = at + sizes[:, j]
+    types = np.full(n_cells, pyvista.CellType.POLYHEDRON, dtype=np.uint8)
+    return pyvista.UnstructuredGrid(stream, types, mesh.points)
 
 
 def job_baseline(folder: str) -> dict:
