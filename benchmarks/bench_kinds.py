@@ -74,8 +74,8 @@ def run_measure_kind(folder: str, kind: str, millions: float, steps: int) -> dic
 def run_polyhedra(folder: str, millions: float, steps: int, kind: str = "polyhedron", baselines=None) -> dict:
     """``bench_polyhedra.py``'s baseline and measure jobs on the polyhedra (``polyhedron``: hexahedra
     written as polyhedra, read as hexahedra; ``polyhedron-mixed``: one cell of another shape among them;
-    ``polyhedron-band``: a fifth of them of another shape; ``polyhedron-split``: every face as two triangles, so all are split); the figures of one row. The
-    baseline runs once per size (``baselines``)."""
+    ``polyhedron-band``: a fifth of them of another shape; ``polyhedron-split``: every face as two
+    triangles, so all are split); the figures of one row. The baseline runs once per size (``baselines``)."""
     info = bench_polyhedra.build(folder, millions, steps)
     series = info[POLYHEDRAL_SERIES[kind]]
     baselines = {} if baselines is None else baselines
