@@ -400,7 +400,7 @@ def split_polyhedra(points: np.ndarray, face_points, face_offsets, face_cell, n_
         number = np.cumsum(keep) - 1
         with_centre = keep[group]
         face_centre[faces[with_centre]] = n_points + n_face_centres + number[group[with_centre]]
-        centre_parts.append(rows[order[starts[keep]]].ravel())
+        centre_parts.append(_in_coordinate_order(X, rows[order[starts[keep]]]).ravel())
         centre_counts.append(np.full(int(np.count_nonzero(keep)), k, dtype=np.int64))
         n_face_centres += int(np.count_nonzero(keep))
     centre_parts.append(cell_corners)
@@ -514,6 +514,23 @@ def _pyramid_volumes(Y: np.ndarray, pyramid: np.ndarray) -> np.ndarray:
     its diagonals (the volume under a bilinear patch is the mean of its two triangulations')."""
     halves = [(0, 1, 2, 4), (0, 2, 3, 4), (0, 1, 3, 4), (1, 2, 3, 4)]
     return 0.5 * sum(_signed_volumes(Y, pyramid[:, list(t)]) for t in halves)
+
+
+def _in_coordinate_order(X: np.ndarray, corners: np.ndarray) -> np.ndarray:
+    """Each row of ``corners`` (point ids, (n, k)) put in the order of its points' coordinates (x, then y,
+    then z; ties in the row's order).
+
+    A centre is the mean of its corners summed in this order, so it is the same to the bit whichever
+    point ids name the corners: a face that each of its two cells writes with its own copies of the
+    corners gets one centre twice, and the copies and the centres merge as the mesh joins coincident
+    points (before, the sums in another order left cracks; found by review).
+    """
+    if corners.size == 0:
+        return corners
+    n, k = corners.shape
+    flat = corners.ravel()
+    order = np.lexsort((X[flat, 2], X[flat, 1], X[flat, 0], np.repeat(np.arange(n), k)))
+    return flat[order].reshape(n, k)
 
 
 def _fill_centred(tetra, source, face_points, nxt, centre_of_position, edge_cell, first_cell_centre: int) -> None:
