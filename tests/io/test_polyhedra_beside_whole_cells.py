@@ -2,7 +2,7 @@
 
 The ordinary ones (and the file's own hexahedra) are kept whole; the others are read as pyramids on
 their quad faces and tetrahedra on their triangles (and about the centres of larger faces), joined to
-their cell centres (``io/_polyhedra.MixedCells``): a quad face shared with a whole cell stays a quad
+their cell centres (``io/_polyhedra.OrdinaryCells.coned``): a quad face shared with a whole cell stays a quad
 on both sides.
 
 Outside checks: the files are written by VTK itself (pyvista) [lib]; whole-cell volumes against

@@ -13,7 +13,7 @@ reader (through pyvista, as the structured datasets are) and handed over as a me
 * when some are and some are not, or the file has hexahedra, wedges or pyramids of its own beside
   polyhedra of other shapes, those cells stay whole and the other polyhedra become pyramids (their
   quad faces) and tetrahedra (their triangles, larger faces cut about a face centre) joined to their
-  cell centres (:class:`MixedCells`, ``split_polyhedra(..., pyramids=True)``): a quad face shared with
+  cell centres (:attr:`OrdinaryCells.coned`, ``split_polyhedra(..., pyramids=True)``): a quad face shared with
   a whole cell is a quad on both sides, which the mesh groups as one face and cuts once; otherwise
 * polyhedra become the tetrahedra of :func:`phasegauge.model.polyhedra.split_polyhedra`
   (about their cell centres; quad faces cut along their shorter diagonal, larger faces about
@@ -255,7 +255,7 @@ class PolyhedralRead:
 
         split = self.split
         mesh.memo(self._KEY, lambda: (self.signature, split))
-        if isinstance(split, (OrdinaryCells, MixedCells)):
+        if isinstance(split, OrdinaryCells):
             return
         if (split.n_centres and mesh.point_merge is None
                 and mesh.n_points == split.n_points + split.n_centres):
@@ -268,8 +268,8 @@ class PolyhedralRead:
     def split(self):
         """The polyhedra's split (:class:`~phasegauge.model.polyhedra.PolyhedraSplit`), or the
         ordinary cells they are (:class:`OrdinaryCells`) when every one is a tetrahedron, pyramid,
-        wedge or hexahedron written as faces (:mod:`phasegauge.model._polyhedron_shapes`), or those
-        cells kept whole beside the others coned (:class:`MixedCells`)."""
+        wedge or hexahedron written as faces (:mod:`phasegauge.model._polyhedron_shapes`), or some
+        are and the others are coned beside them (:attr:`OrdinaryCells.coned`)."""
         from ..model.polyhedra import split_polyhedra
 
         if self._split is None:
@@ -304,8 +304,6 @@ class PolyhedralRead:
         split = self.split
         if isinstance(split, OrdinaryCells):
             return self._ordinary_raw(split)
-        if isinstance(split, MixedCells):
-            return self._mixed_raw(split)
         self._warn_inverted(split, stacklevel=4)
         rows = self._rows
         blocks = self._blocks + [("tetra", split.tetra)]
@@ -357,34 +355,31 @@ class PolyhedralRead:
                                                                                     split.centre_values(points)])
         return points, point_data
 
-    def _mixed_raw(self, mixed: "MixedCells"):
-        """The file as read when some of its polyhedra are ordinary cells: those and the file's own
-        cells whole, the other polyhedra as the pyramids and tetrahedra about their centres."""
+    def _ordinary_raw(self, ordinary: "OrdinaryCells"):
+        """The file as read when its polyhedra are ordinary cells (no split, no added point), or some are:
+        those and the file's own cells whole, the other polyhedra as the pyramids and tetrahedra about
+        their centres."""
         from ..model.cells import JoinedPieces
 
-        split = mixed.split
+        whole = self._blocks + [(name, cells) for name, cells, _ in ordinary.blocks]
+        rows_of = self._rows_of + [rows for _, _, rows in ordinary.blocks]
+        split = ordinary.coned
+        if split is None:
+            raw = new_mesh(self._points, whole, point_data=self._point_data, cell_data=self._cell_data_of(rows_of),
+                           field_data=self.field_data)
+            raw.convex_point_sets = ordinary.words
+            return raw
         self._warn_inverted(split, stacklevel=5)
         pieces = (("pyramid", split.pyramids, split.pyramid_source), ("tetra", split.tetra, split.source))
         coned = [(name, cells, source) for name, cells, source in pieces if len(cells)]
-        whole = self._blocks + [(name, cells) for name, cells, _ in mixed.blocks]
         # 8 bytes a piece: only if used
-        rows_of = (self._rows_of + [rows for _, _, rows in mixed.blocks] + [mixed.rows[source] for *_, source in coned]
-                   if self._numeric_cell_data() else [])
+        rows_of = rows_of + [ordinary.coned_rows[source] for *_, source in coned] if self._numeric_cell_data() else []
         points, point_data = self._with_centres(split)
         raw = new_mesh(points, whole + [(name, cells) for name, cells, _ in coned], point_data=point_data,
                        cell_data=self._cell_data_of(rows_of), field_data=self.field_data)
         # a polyhedron's pyramids and tetrahedra are pieces of it: numbered alike across their two blocks
         raw.cell_pieces = [None] * len(whole) + [source if k == 0 else JoinedPieces(source)
                                                  for k, (*_, source) in enumerate(coned)]
-        raw.convex_point_sets = mixed.words
-        return raw
-
-    def _ordinary_raw(self, ordinary: "OrdinaryCells"):
-        """The file as read when its polyhedra are ordinary cells: no split, no added points."""
-        blocks = self._blocks + [(name, cells) for name, cells, _ in ordinary.blocks]
-        rows_of = self._rows_of + [rows for _, _, rows in ordinary.blocks]
-        raw = new_mesh(self._points, blocks, point_data=self._point_data, cell_data=self._cell_data_of(rows_of),
-                       field_data=self.field_data)
         raw.convex_point_sets = ordinary.words
         return raw
 
@@ -398,47 +393,30 @@ class PolyhedralRead:
 
 @dataclass(frozen=True, eq=False)
 class OrdinaryCells:
-    """The cells of a file whose polyhedra are all ordinary cells written as faces.
+    """The cells of a file whose polyhedra are ordinary cells written as faces, all or some.
 
     Attributes
     ----------
     blocks : list of (str, ndarray, ndarray)
         ``(cell type, connectivity, input rows)``: the hexahedra, wedges and pyramids of the file (their
         linear corners; a wedge's in meshio's order), then the polyhedra as the cells they are
-        (:func:`~phasegauge.model._polyhedron_shapes.ordinary_shapes`).
+        (:func:`~phasegauge.model._polyhedron_shapes.ordinary_shapes`); kept whole.
     words : str
         How the polyhedra were read (``inspect`` shows it).
+    coned : PolyhedraSplit or None
+        The polyhedra of other shapes (None: there are none) as pyramids (their quad faces) and
+        tetrahedra (their triangles, and the triangles about the centres of larger faces) joined to
+        their cell centres (:func:`~phasegauge.model.polyhedra.split_polyhedra` with
+        ``pyramids=True``): a quad face they share with a whole cell is a quad on both sides, so the
+        mesh groups and cuts it once.
+    coned_rows : ndarray of shape (m,), int64, or None
+        The input rows of those polyhedra (``coned.source`` and ``coned.pyramid_source`` number them).
     """
 
     blocks: list
     words: str
-
-
-@dataclass(frozen=True, eq=False)
-class MixedCells:
-    """The cells of a file that has polyhedra of other shapes beside cells kept whole: polyhedra that
-    are ordinary cells written as faces, or the file's own hexahedra, wedges and pyramids.
-
-    Attributes
-    ----------
-    blocks : list of (str, ndarray, ndarray)
-        As :attr:`OrdinaryCells.blocks`: the file's hexahedra, wedges and pyramids, then the
-        polyhedra that are ordinary cells (if any); kept whole.
-    split : PolyhedraSplit
-        The other polyhedra as pyramids (their quad faces) and tetrahedra (their triangles, and the
-        triangles about the centres of larger faces) joined to their cell centres
-        (:func:`~phasegauge.model.polyhedra.split_polyhedra` with ``pyramids=True``): a quad face
-        they share with a whole cell is a quad on both sides, so the mesh groups and cuts it once.
-    rows : ndarray of shape (m,), int64
-        The input rows of those polyhedra (``split.source`` and ``split.pyramid_source`` number them).
-    words : str
-        How the cells were read (``inspect`` shows it).
-    """
-
-    blocks: list
-    split: object
-    rows: np.ndarray
-    words: str
+    coned: object = None
+    coned_rows: np.ndarray | None = None
 
 
 _NAMES = MappingProxyType({"tetra": "tetrahedra", "pyramid": "pyramids", "wedge": "wedges", "hexahedron": "hexahedra"})
@@ -449,9 +427,9 @@ def _ordinary_cells(points, made: list, *, where: str = ""):
     polyhedra's face stream or, for the file's own hexahedra, wedges and pyramids, anything; the input
     rows; None or those cells' block).
 
-    Returns :class:`OrdinaryCells` when every polyhedron is an ordinary cell; :class:`MixedCells` when
-    some cells are (or the file has hexahedra, wedges or pyramids of its own) and other polyhedra are
-    not; None when no cell is kept whole (every polyhedron of another shape: the tetrahedra's split).
+    Returns :class:`OrdinaryCells`: every polyhedron an ordinary cell, or some cells kept whole (those,
+    or the file's own hexahedra, wedges or pyramids) and the other polyhedra coned; None when no cell
+    is kept whole (every polyhedron of another shape: the tetrahedra's split).
     """
     from ..model._polyhedron_shapes import ordinary_shapes
     from ..model.polyhedra import split_polyhedra
@@ -488,7 +466,7 @@ def _ordinary_cells(points, made: list, *, where: str = ""):
     own = sum(len(block[1]) for _, _, block in made if block is not None)
     if own:
         words += f"; the file's {own} hexahedra, wedges and pyramids kept whole"
-    return MixedCells(blocks, split, rows, words)
+    return OrdinaryCells(blocks, words, split, rows)
 
 
 def _cells_of_stream(stream, keep: np.ndarray) -> tuple:

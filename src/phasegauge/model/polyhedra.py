@@ -62,6 +62,7 @@ import numpy as np
 
 from ..errors import UnsupportedMeshError
 from ._face_diagonals import cell_turn_totals, polyhedra_quad_cuts
+from ._geometry import cell_geometry
 from ._grouping import _bits, group_columns, index_dtype
 from ._split_neighbours import edge_twins, ordered_rows, sorted_with_places, split_neighbours
 from .cells import FACES
@@ -469,7 +470,7 @@ def split_polyhedra(points: np.ndarray, face_points, face_offsets, face_cell, n_
     volume = _signed_volumes(Y, tetra)
     total = np.bincount(source, weights=volume, minlength=n_cells)
     if pyramid is not None:
-        pyramid_volume = _pyramid_volumes(Y, pyramid)
+        pyramid_volume = cell_geometry("pyramid", Y, pyramid)[0]  # the mesh's own measure (bilinear base)
         total = total + np.bincount(pyramid_source, weights=pyramid_volume, minlength=n_cells)
     turn = total < 0
     if turn.any():
@@ -507,13 +508,6 @@ def _quad_pyramids(face_points, face_offsets, sizes, face_cell, cell_centre, dty
         keep = np.argsort(owner, kind="stable")
         pyramid, owner = pyramid[keep], owner[keep]
     return pyramid, owner
-
-
-def _pyramid_volumes(Y: np.ndarray, pyramid: np.ndarray) -> np.ndarray:
-    """Signed volumes of pyramids with bilinear bases: the mean of the two splits of the base along
-    its diagonals (the volume under a bilinear patch is the mean of its two triangulations')."""
-    halves = [(0, 1, 2, 4), (0, 2, 3, 4), (0, 1, 3, 4), (1, 2, 3, 4)]
-    return 0.5 * sum(_signed_volumes(Y, pyramid[:, list(t)]) for t in halves)
 
 
 def _in_coordinate_order(X: np.ndarray, corners: np.ndarray) -> np.ndarray:
