@@ -267,7 +267,7 @@ def test_cells_written_with_their_own_copies_of_their_corners(tmp_path, request,
 
     if read_as == "split":
         request.getfixturevalue("every_polyhedron_split")
-    n = 4
+    n = 6
     mesh = grid_mesh((n, n, n), kind="hexahedron", jitter=0.3, seed=11)
     X, conn = mesh.points, mesh.blocks[0].connectivity
     index = np.arange(len(X)).reshape(n + 1, n + 1, n + 1)
@@ -276,7 +276,7 @@ def test_cells_written_with_their_own_copies_of_their_corners(tmp_path, request,
         a, b = int(index[i, j, k]), int(index[i, j, k + 1])
         points.append((X[a] + X[b]) / 2)
         middle[frozenset((a, b))] = len(points) - 1
-    copies, stream, types = [], [], []
+    copies, stream, types, shared = [], [], [], []
     for c, row in enumerate(conn):
         faces = []
         for f in FACES["hexahedron"]:
@@ -287,6 +287,8 @@ def test_cells_written_with_their_own_copies_of_their_corners(tmp_path, request,
                 if edge in middle:
                     loop.append(middle[edge])
             faces.append(loop)
+        whole = [len(faces)] + [x for f in faces for x in [len(f), *f]]
+        shared += [len(whole), *whole]
         used = sorted({p for f in faces for p in f})
         np.random.default_rng(c).shuffle(used)  # the cell's own copies, in its own order
         local = {p: len(copies) + t for t, p in enumerate(used)}
@@ -300,5 +302,11 @@ def test_cells_written_with_their_own_copies_of_their_corners(tmp_path, request,
         read = Series(path).read(0).mesh
     assert read.n_whole_cells == n ** 3 and read.total_measure == pytest.approx(1.0, rel=1e-12)
     assert not cKDTree(read.points).query_pairs(1e-12)  # no two points left at one place [lib]
-    if read_as == "coned":  # (the split decides a quad's cut on each cell's own copy: see the note)
-        assert len(read.boundary_faces[1]) == 6 * n * n
+    # the same cells written with shared corners: the same boundary (on the split, the quads' cuts too:
+    # before, each cell decided a quad's cut on its own copy, and a face could keep a centre on one side
+    # only: 444 boundary faces instead of 432 here)
+    path = str(tmp_path / "shared.vtu")
+    pv.UnstructuredGrid(np.array(shared), np.array(types, np.uint8), np.array(points)).save(path)
+    reference = Series(path).read(0).mesh
+    assert len(read.boundary_faces[1]) == len(reference.boundary_faces[1])
+    assert len(reference.boundary_faces[1]) == (6 * n * n if read_as == "coned" else 2 * 6 * n * n)

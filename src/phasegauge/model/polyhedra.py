@@ -282,7 +282,8 @@ def _check_closed(face_points, nxt, edge_cell, where: str, ids) -> None:
 
 
 def split_polyhedra(points: np.ndarray, face_points, face_offsets, face_cell, n_cells: int, *,
-                    where: str = "", cell_ids=None, diagonals: bool = True, pyramids: bool = False) -> PolyhedraSplit:
+                    where: str = "", cell_ids=None, diagonals: bool = True, pyramids: bool = False,
+                    same_points=None) -> PolyhedraSplit:
     """Split polyhedral cells into tetrahedra about their cell centres (and the centres of faces of
     five or more corners, or of quads whose diagonals tie: see the module notes).
 
@@ -311,6 +312,9 @@ def split_polyhedra(points: np.ndarray, face_points, face_offsets, face_cell, n_
         (:attr:`PolyhedraSplit.pyramids`), whose quad base matches the quad face of an ordinary
         cell (or of another polyhedron's pyramid) across it; ``diagonals`` is then not read, and
         no face neighbours are given.
+    same_points : ndarray of shape (n_points,), int, optional
+        The first point at each point's place (cells written with their own copies of their corners):
+        faces at the same places are one face, so their quads are cut alike and get one centre.
 
     Returns
     -------
@@ -334,6 +338,8 @@ def split_polyhedra(points: np.ndarray, face_points, face_offsets, face_cell, n_
     small = index_dtype(max(n_points + np.asarray(face_offsets).size + n_cells, n_cells + 1))
     face_points = _compact(face_points, small, n_points)
     face_cell = _compact(face_cell, small, n_cells)
+    # the corners that name a face (where the cells share their points, the corners themselves)
+    key_points = face_points if same_points is None else _compact(np.asarray(same_points)[face_points], small, n_points)
     ids = np.arange(n_cells) if cell_ids is None else np.asarray(cell_ids)
     sizes = _check_faces(n_points, face_points, face_offsets, face_cell, n_cells, where, ids)
     nxt = _next_corners(face_offsets, sizes)
@@ -344,8 +350,8 @@ def split_polyhedra(points: np.ndarray, face_points, face_offsets, face_cell, n_
     twin = edge_twins(face_points, nxt, edge_cell, n_points)
     if twin is None and not (packed and _closed_by_keys(face_points, nxt, edge_cell, bits)):
         _check_closed(face_points, nxt, edge_cell, where, ids)  # the grouping names what is wrong
-    if pyramids:
-        twin = None  # the pieces' face neighbours: the mesh groups their faces (pyramids among them)
+    if pyramids or same_points is not None:
+        twin = None  # the pieces' face neighbours: the mesh groups their faces (pyramids among them, or copies merged)
 
     # cell centres first: the mean of each cell's distinct corners (the quad faces' turn check reads them)
     if packed:  # the distinct (cell, corner) keys in increasing order, as the grouping orders them
@@ -376,9 +382,9 @@ def split_polyhedra(points: np.ndarray, face_points, face_offsets, face_cell, n_
     for k in np.unique(sizes[sizes >= smallest_centred]):
         faces = np.flatnonzero(sizes == k)
         if faces.size * k == face_points.size:  # every face of this size: the stream itself, k a row
-            rows = face_points.reshape(-1, k)
+            rows = key_points.reshape(-1, k)
         else:
-            rows = face_points[face_offsets[faces][:, None] + np.arange(k)]
+            rows = key_points[face_offsets[faces][:, None] + np.arange(k)]
         if twin is not None and k < 128:  # where each sorted corner sits in its face, for the neighbours
             rows, local = sorted_with_places(rows)
         else:
@@ -393,7 +399,7 @@ def split_polyhedra(points: np.ndarray, face_points, face_offsets, face_cell, n_
         keep = np.ones(starts.size, dtype=bool)  # the distinct faces that get a centre
         if k == 4 and diagonals:
             totals = cell_turn_totals(X, face_points, face_offsets, sizes, nxt, edge_cell, cell_xyz, n_cells)
-            shift, keep = polyhedra_quad_cuts(X, face_points, face_offsets, faces, group, faces[order[starts]],
+            shift, keep = polyhedra_quad_cuts(X, key_points, face_offsets, faces, group, faces[order[starts]],
                                               face_cell, cell_xyz, totals)
             cut = ~keep[group]
             diagonal_faces, diagonal_shift = faces[cut], shift[cut]
