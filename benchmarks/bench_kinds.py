@@ -21,8 +21,10 @@ Runs, one configuration at a time in fresh child processes (the jobs of ``bench_
 
 and prints one markdown table: wall and CPU seconds of the baseline and of ``measure``, their
 ratio, the first step, the later steps' median, microseconds per cell-step, peak memory over one
-step's mesh and fields, and beside them the previous round's ratio, per cell-step time and peak
-from ``previous_round.json`` (figures copied from ``RESULTS.md``, each with its section).
+step's mesh and fields (the cells as hexahedra or tetrahedra in XDMF: points, int64 corners, one field),
+peak memory over one step as the series' own file holds it (for the polyhedra their face streams
+too: 4.1x the hexahedra's bytes, 6x where every face is two triangles), and beside them the
+previous round's ratio, per cell-step time and peak from ``previous_round.json`` (figures copied from ``RESULTS.md``, each with its section).
 
 Usage::
 
@@ -57,7 +59,7 @@ KINDS = ("tetra", "grid", "hexahedron", "polyhedron", "polyhedron-mixed", "polyh
 POLYHEDRAL_SERIES = {"polyhedron": "polyhedra", "polyhedron-mixed": "split", "polyhedron-band": "band",
                      "polyhedron-split": "triangulated"}
 COLUMNS = ("kind", "cells", "baseline s (cpu)", "measure s (cpu)", "measure / baseline wall (cpu)",
-           "first step s", "later steps s", "us per cell-step", "peak / step bytes",
+           "first step s", "later steps s", "us per cell-step", "peak / step bytes", "peak / the file's step bytes",
            "previous: measure / baseline", "previous: us per cell-step", "previous: peak / step bytes")
 
 
@@ -68,7 +70,7 @@ def run_measure_kind(folder: str, kind: str, millions: float, steps: int) -> dic
     base = bench_measure.run_child("baseline", info)
     ser = bench_measure.run_child("serial", info)
     peak = max(ser["peak_first_half"], ser["peak_second_half"])
-    return _row(kind, info["cells"], base, ser, peak / info["step_bytes"])
+    return _row(kind, info["cells"], base, ser, peak / info["step_bytes"], peak / info["step_bytes"])
 
 
 def run_polyhedra(folder: str, millions: float, steps: int, kind: str = "polyhedron", baselines=None) -> dict:
@@ -84,16 +86,20 @@ def run_polyhedra(folder: str, millions: float, steps: int, kind: str = "polyhed
         baselines[millions] = bench_polyhedra.run_child("baseline", info["polyhedra"])
     bench_measure._warm_file_cache(os.path.join(series, ""))
     ser = bench_polyhedra.run_child("polyhedra", series)
-    return _row(kind, info["cells"], baselines[millions], ser, ser["peak"] / info["step_bytes"])
+    return _row(kind, info["cells"], baselines[millions], ser, ser["peak"] / info["step_bytes"],
+                ser["peak"] / bench_polyhedra.file_step_bytes(series))
 
 
-def _row(kind, cells, base, ser, peak_x) -> dict:
+def _row(kind, cells, base, ser, peak_x, peak_x_file) -> dict:
+    """One row; ``peak_x`` against one step of the cells as an XDMF file of hexahedra or tetrahedra holds
+    them (points, int64 corners, one field), ``peak_x_file`` against one step as the series' own file
+    holds it (the same for the XDMF kinds; for the polyhedra their face streams too)."""
     later = float(np.median(ser["per_step"][1:] or ser["per_step"]))
     return {"kind": kind, "cells": int(cells),
             "baseline_s": base["seconds"], "baseline_cpu": base.get("cpu_seconds", float("nan")),
             "measure_s": ser["seconds"], "measure_cpu": ser.get("cpu_seconds", float("nan")),
             "first_step_s": ser["per_step"][0], "later_step_s": later,
-            "us_per_cell_step": 1e6 * later / cells, "peak_x_step": peak_x}
+            "us_per_cell_step": 1e6 * later / cells, "peak_x_step": peak_x, "peak_x_file": peak_x_file}
 
 
 def table(rows, previous) -> str:
@@ -105,7 +111,7 @@ def table(rows, previous) -> str:
                  f"{r['baseline_s']:.2f} ({r['baseline_cpu']:.2f})", f"{r['measure_s']:.2f} ({r['measure_cpu']:.2f})",
                  f"{r['measure_s'] / r['baseline_s']:.2f} ({r['measure_cpu'] / r['baseline_cpu']:.2f})",
                  f"{r['first_step_s']:.2f}", f"{r['later_step_s']:.3f}", f"{r['us_per_cell_step']:.2f}",
-                 f"{r['peak_x_step']:.1f}"]
+                 f"{r['peak_x_step']:.1f}", f"{r.get('peak_x_file', float('nan')):.1f}"]
         cells += [str(before.get(key, "-")) for key in ("measure_over_baseline", "us_per_cell_step", "peak_x_step")]
         lines.append("| " + " | ".join(cells) + " |")
     return "\n".join(lines)

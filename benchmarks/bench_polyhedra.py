@@ -95,6 +95,26 @@ def build(folder: str, millions: float, steps: int) -> dict:
     return info
 
 
+def file_step_bytes(series: str) -> int:
+    """Bytes of one step of ``series`` as its file holds it, read by VTK (pyvista): points, cell
+    connectivity, offsets and types, the polyhedra's face stream and face locations, point fields.
+    A polyhedral file's mesh is several times that of the same cells as hexahedra (``step_bytes``):
+    6 faces of 4 corners, or 12 triangles, listed for every cell beside its corner list."""
+    import glob
+
+    import pyvista
+
+    grid = pyvista.read(sorted(glob.glob(os.path.join(series, "*.vtu")))[0])
+    arrays = [grid.points, grid.cell_connectivity, grid.cell_offsets, grid.celltypes,
+              *grid.point_data.values(), *grid.cell_data.values()]
+    faces = grid.GetPolyhedronFaces(), grid.GetPolyhedronFaceLocations()
+    total = sum(np.asarray(a).nbytes for a in arrays)
+    for cell_array in faces:
+        if cell_array is not None:  # connectivity and offsets of VTK's cell arrays
+            total += 8 * (cell_array.GetNumberOfConnectivityIds() + cell_array.GetNumberOfOffsets())
+    return int(total)
+
+
 def _one_odd_cell(mesh):
     """The mesh's hexahedra as polyhedra, the first cell's bottom face (z lowest: on the boundary of
     the grid) as two triangles."""
