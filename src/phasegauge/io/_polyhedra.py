@@ -340,7 +340,9 @@ class PolyhedralRead:
                                                 (split.inverted_pyramids, "pyramids")) if n]
         if pieces:
             warnings.warn(MeshWarning(f"{' and '.join(pieces)} of the polyhedra's split have negative volume "
-                                      "(cells not star-shaped from their corner mean)", where=self.path),
+                                      "(cells not star-shaped from their corner mean: their volumes and centroids "
+                                      "are the pieces' signed sums, exact; contours and widths in them count the "
+                                      "overlap twice)", where=self.path),
                           stacklevel=stacklevel)
 
     def _with_centres(self, split) -> tuple:

@@ -17,7 +17,8 @@ import numpy as np
 from ._geometry import cell_geometry
 from .corners import corner_sum
 
-__all__ = ["keeps_centroids", "mesh_geometry", "cell_centroids_of", "whole_cell_centroids", "add_whole_sums"]
+__all__ = ["keeps_centroids", "mesh_geometry", "piece_measures", "cell_centroids_of", "whole_cell_centroids",
+           "add_whole_sums"]
 
 #: cells computed at a time (the chunk's corner coordinates and results stay small)
 _CHUNK = 1 << 16
@@ -40,23 +41,44 @@ def mesh_geometry(mesh) -> tuple:
             cell_geometry(block.cell_type, X, block.connectivity, out=(signed[sl], cent[sl]))
         cent.flags.writeable = False
     else:
-        (signed, whole), cent = _split_geometry(mesh, X), None
+        (signed, whole, scale), cent = _split_geometry(mesh, X), None
         mesh.memo(_WHOLE, lambda: whole)
+        mesh.memo(_SCALE, lambda: scale)
     signed.flags.writeable = False
     return signed, cent
 
 
-#: memo key of a split mesh's whole-cell centroids
-_WHOLE = "whole_cell_centroids"
+#: memo keys of a split mesh's whole-cell centroids and of its pieces' measure scales
+_WHOLE, _SCALE = "whole_cell_centroids", "piece_measure_scales"
+
+
+def piece_measures(mesh, signed: np.ndarray) -> np.ndarray:
+    """The cells' measures (:attr:`Mesh.cell_measures`) from their signed measures: their magnitudes,
+    and where a reader split a cell not star-shaped from its centre (some pieces turned over), its
+    pieces' magnitudes scaled to add up to the cell's own measure, the pieces' signed sum (the
+    divergence theorem: exact for any closed polyhedron; the magnitudes alone add the overlap twice,
+    6.33 instead of 5 for an L-shaped prism). ``signed`` itself where none is negative."""
+    if not np.signbit(signed).any():
+        return signed
+    measures = np.abs(signed)
+    if mesh.cell_parents is not None:
+        scale = mesh.memo(_SCALE, lambda: _split_geometry(mesh, mesh.coordinates)[2])
+        if scale is not None:
+            measures *= scale[mesh.cell_parents]
+    return measures
 
 
 def _split_geometry(mesh, X: np.ndarray) -> tuple:
-    """Signed measures of every cell of a split mesh and its whole cells' centroids (the pieces'
-    centroids weighted by their measures), the pieces' centroids made a chunk at a time and let go."""
+    """Signed measures of every cell of a split mesh, its whole cells' centroids (the pieces' centroids
+    weighted by their measures; in a cell not star-shaped from its centre by their signed measures,
+    exact: its turned pieces take away what the others add twice), and per whole cell the scale of its
+    pieces' magnitudes (:func:`piece_measures`; None when no cell has turned pieces); the pieces'
+    centroids made a chunk at a time and let go."""
     parents = mesh.cell_parents
     n_whole, dim = (int(parents.max()) + 1 if parents.size else 0), X.shape[1]
     signed = np.empty(mesh.n_cells)
-    moment = np.zeros((n_whole, dim + 1))  # sums of measure x centroid, and of measure
+    # sums of signed measure x centroid, of measure x centroid, of signed measure, of measure
+    moment = np.zeros((n_whole, 2 * dim + 2))
     scratch = np.empty((min(_CHUNK, mesh.n_cells), dim))
     X = np.asfortranarray(X)  # each call of cell_geometry then takes the coordinate columns as they are
     for block, start in zip(mesh.blocks, mesh.block_offsets[:-1]):
@@ -66,11 +88,24 @@ def _split_geometry(mesh, X: np.ndarray) -> tuple:
             n = part.shape[0]
             cells = slice(start + lo, start + lo + n)
             cell_geometry(block.cell_type, X, part, out=(signed[cells], scratch[:n]))
-            weight = np.abs(signed[cells])  # the measures (of cell_measures)
-            add_whole_sums(moment, parents[cells], (weight * scratch[:n, d] if d < dim else weight
-                                                    for d in range(dim + 1)))
-    total = moment[:, dim]
-    return signed, moment[:, :dim] / np.where(total > 0, total, 1.0)[:, None]
+            weight, size = signed[cells], np.abs(signed[cells])
+            add_whole_sums(moment, parents[cells], [weight * scratch[:n, d] for d in range(dim)]
+                           + [size * scratch[:n, d] for d in range(dim)] + [weight, size])
+    total, size = np.abs(moment[:, 2 * dim]), moment[:, 2 * dim + 1]
+    # cells with pieces turned against the others (the sums equal to the bit where none is); a signed sum
+    # under _LEAST_SHARE of the magnitudes' is no such cell but pieces listed both ways: their magnitudes
+    turned = (total < size) & (total > _LEAST_SHARE * size)
+    centroids = moment[:, dim:2 * dim] / np.where(size > 0, size, 1.0)[:, None]
+    scale = None
+    if turned.any():
+        centroids[turned] = moment[turned, :dim] / moment[turned, 2 * dim][:, None]
+        scale = np.ones(n_whole)
+        scale[turned] = total[turned] / size[turned]
+    return signed, centroids, scale
+
+
+#: least signed sum of a cell's pieces, as a share of their magnitudes' sum, taken as its measure
+_LEAST_SHARE = 0.01
 
 
 def add_whole_sums(out: np.ndarray, whole: np.ndarray, columns) -> None:

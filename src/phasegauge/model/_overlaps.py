@@ -185,6 +185,8 @@ def _covered_boundary_faces(mesh, neighbours: int = 8) -> int:
         ok = np.abs(det) > 1e-14 * scale
         tol = 1e-9
         hit = ok & np.all(lam > tol, axis=1) & (cell != owners)
+        if mesh.cell_parents is not None:  # pieces of one split cell overlap where it is not star-shaped
+            hit &= mesh.cell_parents[cell] != mesh.cell_parents[owners]
         inside |= hit
     return int(np.count_nonzero(inside))
 

@@ -24,7 +24,7 @@ from functools import cached_property
 import numpy as np
 
 from ..errors import UnsupportedMeshError
-from ._centroids import cell_centroids_of, mesh_geometry
+from ._centroids import cell_centroids_of, mesh_geometry, piece_measures
 from ._conversions import corner_sums, linear_point_values
 from ._faces import (cell_adjacency, face_pairs, face_rows, face_topology, grid_face_numbers, grouped_faces,
                      local_faces, row_owners, unique_edges)
@@ -338,8 +338,7 @@ class Mesh:
         exact to rounding. When no cell is inverted this is the array of
         :attr:`signed_measures` itself (not a copy).
         """
-        signed = self._geometry[0]
-        return np.abs(signed) if np.signbit(signed).any() else signed
+        return piece_measures(self, self._geometry[0])
 
     @cached_property
     def inverted_cells(self) -> int:
