@@ -175,3 +175,51 @@ def test_hexahedra_no_quad_face_joins_to_split_cells_stay_whole(tmp_path):
     assert mesh.cell_type_counts["hexahedron"] == 8  # the block apart is kept as it is
     assert mesh.n_whole_cells == whole + 8
     np.testing.assert_allclose(mesh.total_measure, 2.0, rtol=1e-12)  # the cube and the block apart
+
+
+def test_cells_of_three_kinds_written_with_their_own_copies_of_their_corners(tmp_path):
+    # hexahedra (12), convex point sets (41) and polyhedra (42) in turn, each cell with its own copies of
+    # its corners in its own order: read as the same cells written with shared corners (found by review:
+    # the faces met by point number, so the hexahedra beside the polyhedra's centred quads stayed whole,
+    # 756 boundary faces instead of 384 on 4^3 cells). Boundary faces of the unit cube's split, 4 x 6 n^2
+    # triangles, every quad coned from its centre (elementary counting); the point field x + 2 y - z, linear, exact at every point and
+    # face centre (a mean of corners of a linear field; elementary)
+    from scipy.spatial import cKDTree
+
+    n = 4
+    mesh = grid_mesh((n, n, n), kind="hexahedron", jitter=0.3, seed=11)
+    X, conn = mesh.points, mesh.blocks[0].connectivity
+    files = {}
+    for own in (False, True):
+        stream, types, copies = [], [], []
+        for c, row in enumerate(conn):
+            row = [int(r) for r in row]
+            local = {}
+            if own:
+                for t in np.random.default_rng(c).permutation(8):
+                    local[row[t]] = len(copies)
+                    copies.append(X[row[t]])
+            at = local.get if own else int
+            kind = c % 3
+            if kind < 2:
+                stream += [8, *[at(p) for p in (row if kind == 0 else row[::-1])]]
+                types.append(VTK["hexahedron"] if kind == 0 else VTK["convex"])
+            else:
+                faces = [[at(row[i]) for i in f] for f in FACES["hexahedron"]]
+                whole = [len(faces)] + [x for f in faces for x in [len(f), *f]]
+                stream += [len(whole), *whole]
+                types.append(42)
+        P = np.array(copies if own else X, dtype=float)
+        grid = pv.UnstructuredGrid(np.array(stream), np.array(types, np.uint8), P)
+        grid.point_data["f"] = P[:, 0] + 2 * P[:, 1] - P[:, 2]
+        files[own] = str(tmp_path / f"own_{own}.vtu")
+        grid.save(files[own])
+    reference = Series(files[False]).read(0).mesh
+    with pytest.warns(Warning, match="duplicate points merged"):
+        step = Series(files[True]).read(0)
+    read = step.mesh
+    assert len(reference.boundary_faces[1]) == len(read.boundary_faces[1]) == 4 * 6 * n * n
+    assert read.n_points == reference.n_points and read.total_measure == pytest.approx(1.0, rel=1e-12)
+    assert not cKDTree(read.points).query_pairs(1e-12)  # no two points at one place [lib]
+    x = read.points
+    np.testing.assert_allclose(step.fields.point_data["f"], x[:, 0] + 2 * x[:, 1] - x[:, 2], atol=1e-12)

@@ -5,7 +5,7 @@ import numpy as np
 import pytest
 
 from phasegauge import meshgen
-from phasegauge.io._meshio_adapter import _coincident_points
+from phasegauge.model._places import coincident_points as _coincident_points
 
 KINDS_2D = ["triangle", "quad", "mixed", "polygon"]
 KINDS_3D = ["tetra", "hexahedron", "wedge", "pyramid", "mixed"]

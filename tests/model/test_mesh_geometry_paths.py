@@ -12,7 +12,7 @@ import numpy as np
 import pytest
 
 from phasegauge.model import _geometry, _grouping, cells
-from phasegauge.io import _meshio_adapter
+from phasegauge.model import _places
 from phasegauge.model.mesh import Mesh
 from phasegauge.meshgen import grid_mesh, to_meshio
 
@@ -311,24 +311,24 @@ def test_coincident_points_against_numpy_unique(seed):
     base = rng.integers(-2, 3, size=(40, 3)).astype(float) * 0.5
     points = base[rng.integers(0, 40, 200)]
     points[rng.random(200) < 0.2] *= -1.0  # -0.0 and 0.0 are one point
-    inverse, n = _meshio_adapter._coincident_points(points)
+    inverse, n = _places.coincident_points(points)
     ref_inverse, ref_n = _reference_coincident(points)
     assert n == ref_n and np.array_equal(inverse, ref_inverse)
 
 
 def test_coincident_points_exact_when_keys_collide(monkeypatch):
     # every key equal: the exact fallback must still separate different points
-    monkeypatch.setattr(_meshio_adapter, "_MIX", np.zeros(3, dtype=np.uint64))
+    monkeypatch.setattr(_places, "_MIX", np.zeros(3, dtype=np.uint64))
     rng = np.random.default_rng(1)
     points = rng.integers(0, 3, size=(100, 3)).astype(float)
-    inverse, n = _meshio_adapter._coincident_points(points)
+    inverse, n = _places.coincident_points(points)
     ref_inverse, ref_n = _reference_coincident(points)
     assert n == ref_n and np.array_equal(inverse, ref_inverse)
 
 
 def test_coincident_points_all_distinct():
     points = np.random.default_rng(2).random((1000, 3))
-    inverse, n = _meshio_adapter._coincident_points(points)
+    inverse, n = _places.coincident_points(points)
     assert n == 1000 and np.array_equal(inverse, np.arange(1000))
 
 

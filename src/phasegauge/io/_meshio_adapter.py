@@ -25,6 +25,7 @@ import numpy as np
 
 from ..errors import (FieldShapeError, InputFileNotFound, MeshWarning, UnreadableFileError,
                       UnsupportedMeshError, short_text)
+from ..model._places import coincident_points, first_copies
 from ..model.mesh import Mesh
 from ._cells_refused import cell_type_refused, check_cells_left_out
 
@@ -130,10 +131,12 @@ def convex_point_sets(raw):
         return raw
     new_blocks, new_data, pieces = [], {name: [] for name in raw.cell_data}, []
     earlier = getattr(raw, "cell_pieces", None) or [None] * len(raw.cells)
-    out = ConvexCells(face_centres=dict(getattr(raw, "face_centres", None) or {}))  # centres already there
     points = np.asarray(raw.points, dtype=np.float64)
     if points.shape[1] < 3:
         points = np.hstack([points, np.zeros((len(points), 3 - points.shape[1]))])
+    # faces named by the places of their corners (cells written with their own copies of them share faces)
+    out = ConvexCells(same_points=first_copies(points))
+    out.face_centres = {out.face_key(key): at for key, at in (getattr(raw, "face_centres", None) or {}).items()}
     for i, block in enumerate(raw.cells):
         if not marked[i]:
             new_blocks.append((str(block.type), block.data))
@@ -525,7 +528,7 @@ def _checked_mesh(mesh: Mesh, raw, where: str) -> Mesh:
     if bad:
         raise UnsupportedMeshError(f"{bad} points of the cells have NaN or Inf coordinates", where=where,
                                    fix="the file is damaged or the mesh motion diverged; write the step again")
-    inverse, n_unique = _coincident_points(mesh.points)
+    inverse, n_unique = coincident_points(mesh.points)
     if n_unique == mesh.n_points:
         return mesh
     blocks = [(b.type, inverse[np.asarray(b.data, dtype=np.int64)]) for b in raw.cells]
@@ -537,57 +540,3 @@ def _checked_mesh(mesh: Mesh, raw, where: str) -> Mesh:
     return merged
 
 
-def _coincident_points(points: np.ndarray) -> tuple[np.ndarray, int]:
-    """Index of each point among the distinct ones (exactly equal coordinates), and their number.
-
-    Distinct points are numbered in order of first appearance. The coordinates' bits are
-    mixed into one 64-bit key and sorted; only points whose key is not unique are compared
-    exactly (a key shared by different points falls back to an exact sort of the rows).
-    """
-    points = np.asarray(points, dtype=np.float64)
-    n = points.shape[0]
-    if n < 2:
-        return np.arange(n, dtype=np.int64), n
-    with np.errstate(over="ignore"):
-        key = np.zeros(n, dtype=np.uint64)
-        for j in range(points.shape[1]):  # column by column: one column's copy at a time
-            bits = (points[:, j] + 0.0).view(np.uint64)  # -0.0 -> 0.0
-            bits += np.uint64(j + 1)
-            key ^= bits
-            key *= _MIX[j % len(_MIX)]
-            key ^= key >> np.uint64(31)
-        del bits
-    ks = np.sort(key)
-    if not np.any(ks[1:] == ks[:-1]):  # all keys differ, so do all points
-        return np.arange(n, dtype=np.int64), n
-    order = np.argsort(key)
-    ks = key[order]
-    repeated = ks[1:] == ks[:-1]
-    # positions (in key order) of the runs of equal keys
-    in_run = np.zeros(n, dtype=bool)
-    in_run[1:] |= repeated
-    in_run[:-1] |= repeated
-    cand = order[in_run]  # the candidates, grouped by key
-    ck = ks[in_run]
-    new_run = np.concatenate([[True], ck[1:] != ck[:-1]])
-    rows = points[cand] + 0.0
-    same = np.all(rows[1:] == rows[:-1], axis=1)
-    if np.any(~new_run[1:] & ~same):  # one key for different points: sort the candidates exactly
-        _, inverse = np.unique(rows, axis=0, return_inverse=True)
-        inverse = inverse.ravel()
-        group_order = np.argsort(inverse, kind="stable")
-        cand = cand[group_order]
-        ordered = inverse[group_order]
-        new_run = np.concatenate([[True], ordered[1:] != ordered[:-1]])
-    # every point's representative: the first point of its group (others stand for themselves)
-    starts = np.flatnonzero(new_run)
-    first = np.minimum.reduceat(cand, starts)
-    rep = np.arange(n, dtype=np.int64)
-    rep[cand] = np.repeat(first, np.diff(np.append(starts, cand.size)))
-    is_first = rep == np.arange(n)
-    rank = np.cumsum(is_first) - 1
-    return rank[rep].astype(np.int64), int(np.count_nonzero(is_first))
-
-
-_MIX = np.array([0x9E3779B97F4A7C15, 0xC2B2AE3D27D4EB4F, 0x165667B19E3779F9], dtype=np.uint64)
-_MIX.flags.writeable = False

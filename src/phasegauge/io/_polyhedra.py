@@ -49,7 +49,8 @@ import numpy as np
 
 from ..errors import MeshWarning, UnreadableFileError, UnsupportedMeshError, short_text
 from ..model._grouping import ranges
-from ._meshio_adapter import (CONVEX_POINT_SET, _coincident_points, convex_point_sets, ensure_vtk_extras, new_mesh,
+from ..model._places import first_copies
+from ._meshio_adapter import (CONVEX_POINT_SET, convex_point_sets, ensure_vtk_extras, new_mesh,
                               read_with_meshio)
 
 __all__ = ["xml_holds_polyhedra", "legacy_holds_polyhedra", "read_polyhedral", "PolyhedralRead"]
@@ -287,7 +288,7 @@ class PolyhedralRead:
                 del made
                 self._split = split_polyhedra(self._points, face_points, face_offsets, face_cell, self._rows.size,
                                               where=self.path, cell_ids=self._rows, diagonals=not convex,
-                                              same_points=_first_copies(self._points))
+                                              same_points=first_copies(self._points))
             self._drop_faces()
         return self._split
 
@@ -341,8 +342,8 @@ class PolyhedralRead:
         if pieces:
             warnings.warn(MeshWarning(f"{' and '.join(pieces)} of the polyhedra's split have negative volume "
                                       "(cells not star-shaped from their corner mean: their volumes and centroids "
-                                      "are the pieces' signed sums, exact; contours and widths in them count the "
-                                      "overlap twice)", where=self.path),
+                                      "are the pieces' signed sums, exact, as are cell-field integrals; contours, widths "
+                                      "and point-field integrals in them are not: the overlap counts twice)", where=self.path),
                           stacklevel=stacklevel)
 
     def _with_centres(self, split) -> tuple:
@@ -471,16 +472,6 @@ def _ordinary_cells(points, made: list, *, where: str = ""):
     if own:
         words += f"; the file's {own} hexahedra, wedges and pyramids kept whole"
     return OrdinaryCells(blocks, words, split, rows)
-
-
-def _first_copies(points) -> np.ndarray | None:
-    """The first point at each point's place, or None when no two points share one (cells written
-    with their own copies of their corners are split with their faces matched by place)."""
-    inverse, n_unique = _coincident_points(points)
-    if n_unique == len(inverse):
-        return None
-    first = np.flatnonzero(np.concatenate([[True], inverse[1:] > np.maximum.accumulate(inverse)[:-1]]))
-    return first[inverse]  # (places are numbered in order of their first point)
 
 
 def _cells_of_stream(stream, keep: np.ndarray) -> tuple:

@@ -92,8 +92,8 @@ def _split_geometry(mesh, X: np.ndarray) -> tuple:
             add_whole_sums(moment, parents[cells], [weight * scratch[:n, d] for d in range(dim)]
                            + [size * scratch[:n, d] for d in range(dim)] + [weight, size])
     total, size = np.abs(moment[:, 2 * dim]), moment[:, 2 * dim + 1]
-    # cells with pieces turned against the others (the sums equal to the bit where none is); a signed sum
-    # under _LEAST_SHARE of the magnitudes' is no such cell but pieces listed both ways: their magnitudes
+    # cells with pieces turned against the others (the sums equal to the bit where none is), however thin
+    # (the reader refuses faces listed both ways); a signed sum of nothing at all is no cell: its magnitudes
     turned = (total < size) & (total > _LEAST_SHARE * size)
     centroids = moment[:, dim:2 * dim] / np.where(size > 0, size, 1.0)[:, None]
     scale = None
@@ -105,7 +105,8 @@ def _split_geometry(mesh, X: np.ndarray) -> tuple:
 
 
 #: least signed sum of a cell's pieces, as a share of their magnitudes' sum, taken as its measure
-_LEAST_SHARE = 0.01
+#: (rounding only: a thin L-shaped prism, 200 long and 0.01 wide, has a share of 1e-4)
+_LEAST_SHARE = 1e-9
 
 
 def add_whole_sums(out: np.ndarray, whole: np.ndarray, columns) -> None:

@@ -178,17 +178,41 @@ def _covered_boundary_faces(mesh, neighbours: int = 8) -> int:
     near = near.reshape(len(probe), k)
     inside = np.zeros(len(probe), dtype=bool)
     scale = np.maximum(size ** d, 1e-300)
+    parents, found = mesh.cell_parents, []
     for j in range(k):
         cell = near[:, j]
         verts = x[simplices[cell]]  # (n, d + 1, d)
         lam, det = _barycentric(verts, probe)
-        ok = np.abs(det) > 1e-14 * scale
-        tol = 1e-9
-        hit = ok & np.all(lam > tol, axis=1) & (cell != owners)
-        if mesh.cell_parents is not None:  # pieces of one split cell overlap where it is not star-shaped
-            hit &= mesh.cell_parents[cell] != mesh.cell_parents[owners]
+        hit = (np.abs(det) > 1e-14 * scale) & np.all(lam > _INSIDE, axis=1) & (cell != owners)
+        if parents is not None:  # pieces of one split cell overlap where it is not star-shaped
+            hit &= parents[cell] != parents[owners]
+            found.append(np.stack([np.flatnonzero(hit), parents[cell[hit]]], axis=1))
         inside |= hit
+    if parents is not None and inside.any():
+        pairs = np.unique(np.concatenate(found), axis=0)
+        inside[:] = False
+        inside[pairs[_held_by_whole_cells(x, simplices, parents, probe[pairs[:, 0]], pairs[:, 1]), 0]] = True
     return int(np.count_nonzero(inside))
+
+
+#: least barycentric coordinate of a point inside a simplex (rounding: a point on a face is outside)
+_INSIDE = 1e-9
+
+
+def _held_by_whole_cells(x: np.ndarray, simplices: np.ndarray, parents: np.ndarray, points: np.ndarray,
+                         whole: np.ndarray) -> np.ndarray:
+    """Which ``points`` (n, d) lie inside the whole cells ``whole`` (n,) of a split mesh: the signs of
+    the cell's pieces that hold the point, summed (its winding number; the pieces of a cell not
+    star-shaped overlap where it does not reach, turned against each other, and sum to 0 there)."""
+    order = np.argsort(parents, kind="stable")
+    start = np.searchsorted(parents, whole, sorter=order)
+    count = np.searchsorted(parents, whole, side="right", sorter=order) - start
+    pair = np.repeat(np.arange(whole.size), count)
+    first = np.repeat(np.cumsum(count) - count, count)
+    piece = order[np.repeat(start, count) + np.arange(pair.size) - first]
+    lam, det = _barycentric(x[simplices[piece]], points[pair])
+    held = (det != 0) & np.all(lam > _INSIDE, axis=1)
+    return np.bincount(pair, weights=np.where(held, np.sign(det), 0.0), minlength=whole.size) != 0
 
 
 def _barycentric(verts: np.ndarray, point: np.ndarray):

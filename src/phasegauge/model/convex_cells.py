@@ -74,7 +74,11 @@ class ConvexCells:
         which cell each piece belongs to: ``Mesh(pieces=...)``).
     face_centres : dict
         Point number of the centre of each hull face of more than three corners, keyed by its
-        sorted corner numbers: one point for every split cell that shares the face.
+        sorted corner numbers (:meth:`face_key`): one point for every split cell that shares the face.
+    same_points : ndarray of shape (n_points,), int, optional
+        The first point at each point's place (cells written with their own copies of their corners):
+        faces are keyed by these, so two cells' copies of a face are one face (its centre's point values
+        are then the first copies').
     """
 
     blocks: list = field(default_factory=list)
@@ -83,6 +87,16 @@ class ConvexCells:
     centre_corners: list = field(default_factory=list)
     split: list = field(default_factory=list)
     face_centres: dict = field(default_factory=dict)
+    same_points: np.ndarray | None = None
+
+    def places(self, corners: np.ndarray) -> np.ndarray:
+        """Point numbers of ``corners`` by place: the first point at each (the numbers themselves when no
+        two points share a place)."""
+        return corners if self.same_points is None else self.same_points[corners]
+
+    def face_key(self, corners) -> tuple:
+        """The key of a face in :attr:`face_centres`: its corners' places, sorted, distinct."""
+        return tuple(sorted(set(self.places(np.asarray(corners, dtype=np.int64)).tolist())))
 
     @property
     def n_centres(self) -> int:
@@ -246,7 +260,7 @@ def _split_about_centre(points, cells, rows, out: ConvexCells) -> None:
                 tets.append([[*tri, base + i]])
             else:
                 local = hull.simplices[group]
-                key = tuple(sorted(set(corners[local.ravel()].tolist())))
+                key = out.face_key(corners[local.ravel()])
                 face = out.face_centres.get(key)  # a face of a cell split before, or numbered below
                 if face is None:
                     face = -1 - face_numbers.setdefault(key, len(face_numbers))
@@ -377,7 +391,7 @@ def _cells_to_split(blocks: list, out: ConvexCells) -> dict | None:
         conn = conn if corners is None else conn[:, corners]
         for face in FACES[kind]:
             if len(face) == 4:
-                keys.append(sort_small_rows(conn[:, list(face)]))
+                keys.append(sort_small_rows(out.places(conn[:, list(face)])))
                 cell.append(n + np.arange(len(conn)))
         spans[b] = (n, n + len(conn))
         n += len(conn)
@@ -402,7 +416,7 @@ def _cone_from_centres(points: np.ndarray, kind: str, conn: np.ndarray, out: Con
     cells = np.arange(n, dtype=np.int64)
     quads = [face for face in FACES[kind] if len(face) == 4]
     F = np.concatenate([conn[:, list(face)] for face in quads])  # (q * n, 4), face after face
-    keys, inverse = unique_rows(sort_small_rows(F))
+    keys, inverse = unique_rows(sort_small_rows(out.places(F)))
     number = _centre_numbers(keys, out.face_centres)
     new = number < 0
     number[new] = base + n + np.arange(int(new.sum()))

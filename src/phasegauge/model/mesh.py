@@ -342,8 +342,9 @@ class Mesh:
 
     @cached_property
     def inverted_cells(self) -> int:
-        """Number of cells whose orientation is opposite to the majority."""
-        s = self.signed_measures
+        """Number of cells whose orientation is opposite to the majority (whole cells of a split mesh)."""
+        s = self.signed_measures  # (a non-star cell's turned pieces are none: its signed sum counts)
+        s = s if self.cell_parents is None else np.bincount(self.cell_parents, weights=s)
         majority = 1.0 if np.sum(s > 0) >= np.sum(s < 0) else -1.0
         return int(np.sum(s * majority < 0))
 

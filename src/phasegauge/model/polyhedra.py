@@ -314,7 +314,8 @@ def split_polyhedra(points: np.ndarray, face_points, face_offsets, face_cell, n_
         no face neighbours are given.
     same_points : ndarray of shape (n_points,), int, optional
         The first point at each point's place (cells written with their own copies of their corners):
-        faces at the same places are one face, so their quads are cut alike and get one centre.
+        faces at the same places are one face, so their quads are cut alike; each copy gets its own
+        centre at the one place, with its own cell's values (merged with the points, they average).
 
     Returns
     -------
@@ -404,12 +405,17 @@ def split_polyhedra(points: np.ndarray, face_points, face_offsets, face_cell, n_
             cut = ~keep[group]
             diagonal_faces, diagonal_shift = faces[cut], shift[cut]
             del totals, shift, cut
-        number = np.cumsum(keep) - 1
         with_centre = keep[group]
-        face_centre[faces[with_centre]] = n_points + n_face_centres + number[group[with_centre]]
-        centre_parts.append(_in_coordinate_order(X, rows[order[starts[keep]]]).ravel())
-        centre_counts.append(np.full(int(np.count_nonzero(keep)), k, dtype=np.int64))
-        n_face_centres += int(np.count_nonzero(keep))
+        if same_points is None:  # one centre a distinct face
+            number = (np.cumsum(keep) - 1)[group[with_centre]]
+            corners = rows[order[starts[keep]]]
+        else:  # one a copy, all at the same place (its values its own cell's; the merged point averages them)
+            number = np.arange(int(np.count_nonzero(with_centre)))
+            corners = face_points[face_offsets[faces[with_centre]][:, None] + np.arange(k)]
+        face_centre[faces[with_centre]] = n_points + n_face_centres + number
+        centre_parts.append(_in_coordinate_order(X, corners).ravel())
+        centre_counts.append(np.full(corners.shape[0], k, dtype=np.int64))
+        n_face_centres += corners.shape[0]
     centre_parts.append(cell_corners)
     centre_counts.append(cell_counts)
     centre_points = np.concatenate(centre_parts).astype(index_dtype(n_points), copy=False)  # kept with the split
