@@ -183,7 +183,9 @@ def test_cells_of_three_kinds_written_with_their_own_copies_of_their_corners(tmp
     # the faces met by point number, so the hexahedra beside the polyhedra's centred quads stayed whole,
     # 756 boundary faces instead of 384 on 4^3 cells). Boundary faces of the unit cube's split, 4 x 6 n^2
     # triangles, every quad coned from its centre (elementary counting); the point field x + 2 y - z, linear, exact at every point and
-    # face centre (a mean of corners of a linear field; elementary)
+    # face centre (a mean of corners of a linear field; elementary); the cell's number on each cell's
+    # copies: at a face centre the mean of its cells' numbers (each copy of the face its own centre, the
+    # mean of its own corners, merged with the other; found by review: the first copy's alone)
     from scipy.spatial import cKDTree
 
     n = 4
@@ -212,6 +214,8 @@ def test_cells_of_three_kinds_written_with_their_own_copies_of_their_corners(tmp
         P = np.array(copies if own else X, dtype=float)
         grid = pv.UnstructuredGrid(np.array(stream), np.array(types, np.uint8), P)
         grid.point_data["f"] = P[:, 0] + 2 * P[:, 1] - P[:, 2]
+        if own:
+            grid.point_data["cell"] = np.repeat(np.arange(len(conn), dtype=float), 8)
         files[own] = str(tmp_path / f"own_{own}.vtu")
         grid.save(files[own])
     reference = Series(files[False]).read(0).mesh
@@ -223,3 +227,12 @@ def test_cells_of_three_kinds_written_with_their_own_copies_of_their_corners(tmp
     assert not cKDTree(read.points).query_pairs(1e-12)  # no two points at one place [lib]
     x = read.points
     np.testing.assert_allclose(step.fields.point_data["f"], x[:, 0] + 2 * x[:, 1] - x[:, 2], atol=1e-12)
+    faces = {}  # each quad's centre (its corners' mean, to rounding) -> the cells that have it
+    for c, row in enumerate(conn):
+        for f in FACES["hexahedron"]:
+            faces.setdefault(tuple(sorted(int(row[i]) for i in f)), []).append(c)
+    centres = np.array([X[list(key)].mean(axis=0) for key in faces])
+    distance, at = cKDTree(x).query(centres)
+    assert distance.max() < 1e-12
+    expected = np.array([np.mean(cells) for cells in faces.values()])
+    np.testing.assert_allclose(step.fields.point_data["cell"][at], expected, rtol=0, atol=1e-12)

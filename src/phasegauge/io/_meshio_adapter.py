@@ -25,7 +25,7 @@ import numpy as np
 
 from ..errors import (FieldShapeError, InputFileNotFound, MeshWarning, UnreadableFileError,
                       UnsupportedMeshError, short_text)
-from ..model._places import coincident_points, first_copies
+from ..model._places import coincident_points, corner_means, first_copies
 from ..model.mesh import Mesh
 from ._cells_refused import cell_type_refused, check_cells_left_out
 
@@ -156,11 +156,13 @@ def convex_point_sets(raw):
     new_blocks, pieces, new_data = split_beside(points, new_blocks, pieces, new_data, out)
     if out.centre_corners:
         corners = out.centre_corners
-        raw.points = np.vstack([points] + [points[c].mean(axis=1) for c in corners])
+        rows = np.concatenate([c.ravel() for c in corners])  # (the polyhedra's centres are made alike)
+        offsets = np.concatenate([[0], np.cumsum(np.concatenate([np.full(len(c), c.shape[1]) for c in corners]))])
+        raw.points = np.vstack([points, corner_means(points, rows, offsets)])
         for name, values in list(raw.point_data.items()):
             values = np.asarray(values)
             if np.issubdtype(values.dtype, np.number):
-                raw.point_data[name] = np.concatenate([values] + [values[c].mean(axis=1) for c in corners])
+                raw.point_data[name] = np.concatenate([values, corner_means(values, rows, offsets)])
     raw.cells = [CellBlock(t, c) for t, c in new_blocks]
     raw.cell_data = new_data
     if any(p is not None for p in pieces):

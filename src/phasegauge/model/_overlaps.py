@@ -191,7 +191,8 @@ def _covered_boundary_faces(mesh, neighbours: int = 8) -> int:
     if parents is not None and inside.any():
         pairs = np.unique(np.concatenate(found), axis=0)
         inside[:] = False
-        inside[pairs[_held_by_whole_cells(x, simplices, parents, probe[pairs[:, 0]], pairs[:, 1]), 0]] = True
+        held = _held_by_whole_cells(x, simplices, parents, probe[pairs[:, 0]], pairs[:, 1], size[pairs[:, 0]])
+        inside[pairs[held, 0]] = True
     return int(np.count_nonzero(inside))
 
 
@@ -200,19 +201,58 @@ _INSIDE = 1e-9
 
 
 def _held_by_whole_cells(x: np.ndarray, simplices: np.ndarray, parents: np.ndarray, points: np.ndarray,
-                         whole: np.ndarray) -> np.ndarray:
+                         whole: np.ndarray, sizes: np.ndarray) -> np.ndarray:
     """Which ``points`` (n, d) lie inside the whole cells ``whole`` (n,) of a split mesh: the signs of
     the cell's pieces that hold the point, summed (its winding number; the pieces of a cell not
-    star-shaped overlap where it does not reach, turned against each other, and sum to 0 there)."""
-    order = np.argsort(parents, kind="stable")
+    star-shaped overlap where it does not reach, turned against each other, and sum to 0 there).
+
+    A point on a face between two pieces is held by neither, and the sum can miss one: such a point is
+    moved by a millionth of ``sizes`` (its cell's size) along a fixed slant and counted again. Pairs
+    are taken a chunk at a time (a cell's pieces each hold a row of the work).
+    """
+    order = None if np.all(parents[1:] >= parents[:-1]) else np.argsort(parents, kind="stable")
     start = np.searchsorted(parents, whole, sorter=order)
     count = np.searchsorted(parents, whole, side="right", sorter=order) - start
-    pair = np.repeat(np.arange(whole.size), count)
-    first = np.repeat(np.cumsum(count) - count, count)
-    piece = order[np.repeat(start, count) + np.arange(pair.size) - first]
-    lam, det = _barycentric(x[simplices[piece]], points[pair])
-    held = (det != 0) & np.all(lam > _INSIDE, axis=1)
-    return np.bincount(pair, weights=np.where(held, np.sign(det), 0.0), minlength=whole.size) != 0
+    slant = np.array([0.5773, 0.3141, 0.7544, 0.1732])[:points.shape[1]]
+    slant /= np.linalg.norm(slant)
+    held = np.zeros(whole.size, dtype=bool)
+    total = np.cumsum(count)
+    bounds = np.unique(np.concatenate([[0], np.searchsorted(total, np.arange(_PIECES, total[-1], _PIECES)),
+                                       [whole.size]])) if whole.size else np.zeros(1, dtype=np.int64)
+    for lo, hi in zip(bounds[:-1], bounds[1:]):
+        part = slice(int(lo), int(hi))
+        pieces, pair = _pieces_of(start[part], count[part], order)
+        winding, unsure = _winding(x, simplices[pieces], points[part][pair], pair, int(hi - lo))
+        if unsure.any():
+            moved = points[part] + 1e-6 * sizes[part][:, None] * slant
+            again, _ = _winding(x, simplices[pieces], moved[pair], pair, int(hi - lo))
+            winding[unsure] = again[unsure]
+        held[part] = winding != 0
+    return held
+
+
+#: pieces (point, piece of its cell) tested together by :func:`_held_by_whole_cells`
+_PIECES = 1 << 16
+
+
+def _pieces_of(start: np.ndarray, count: np.ndarray, order) -> tuple[np.ndarray, np.ndarray]:
+    """The pieces of each whole cell (its pieces ``start`` to ``start + count`` in parent order), and
+    for each the index of its cell in ``start``."""
+    pair = np.repeat(np.arange(start.size), count)
+    at = np.repeat(start - (np.cumsum(count) - count), count) + np.arange(pair.size)
+    return (at if order is None else order[at]), pair
+
+
+def _winding(x: np.ndarray, corners: np.ndarray, points: np.ndarray, pair: np.ndarray, n: int) -> tuple:
+    """Per pair, the signs of the pieces (``corners``) holding its point summed, and whether the point
+    lies on a piece's face (within rounding: some piece's least barycentric coordinate about 0)."""
+    lam, det = _barycentric(x[corners], points)
+    least = lam.min(axis=1)
+    real = det != 0
+    held = real & (least > _INSIDE)
+    on_face = real & (np.abs(least) <= _INSIDE)
+    winding = np.bincount(pair, weights=np.where(held, np.sign(det), 0.0), minlength=n)
+    return winding, np.bincount(pair, weights=on_face, minlength=n) > 0
 
 
 def _barycentric(verts: np.ndarray, point: np.ndarray):

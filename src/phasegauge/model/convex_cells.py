@@ -39,6 +39,7 @@ from dataclasses import dataclass, field
 import numpy as np
 
 from ._grouping import sort_small_rows, unique_rows
+from ._places import in_coordinate_order
 from .cells import FACES, LINEAR_CORNERS
 
 __all__ = ["ConvexCells", "convert_convex_point_sets", "split_beside"]
@@ -77,8 +78,9 @@ class ConvexCells:
         sorted corner numbers (:meth:`face_key`): one point for every split cell that shares the face.
     same_points : ndarray of shape (n_points,), int, optional
         The first point at each point's place (cells written with their own copies of their corners):
-        faces are keyed by these, so two cells' copies of a face are one face (its centre's point values
-        are then the first copies').
+        faces are keyed by these, so two cells' copies of a face are one face; each copy gets its own
+        centre at the one place, the mean of its own corners (so its own cell's point values: the
+        mesh merges the centres with the points and averages them).
     """
 
     blocks: list = field(default_factory=list)
@@ -95,8 +97,10 @@ class ConvexCells:
         return corners if self.same_points is None else self.same_points[corners]
 
     def face_key(self, corners) -> tuple:
-        """The key of a face in :attr:`face_centres`: its corners' places, sorted, distinct."""
-        return tuple(sorted(set(self.places(np.asarray(corners, dtype=np.int64)).tolist())))
+        """The key of a face in :attr:`face_centres`: its corners' places, sorted (``corners``: each once)."""
+        if self.same_points is None:
+            return tuple(sorted(corners))
+        return tuple(sorted(self.same_points[np.asarray(corners, dtype=np.int64)].tolist()))
 
     @property
     def n_centres(self) -> int:
@@ -245,7 +249,9 @@ def _split_about_centre(points, cells, rows, out: ConvexCells) -> None:
     A hull face of three corners is one tetrahedron's base; a face of more corners (a quad or
     polygon: several coplanar hull triangles) is coned from its own centre, one tetrahedron per
     face edge. The face centre is one point for every cell that shares the face (keyed by its
-    sorted corner numbers), so neighbouring cells cut a shared face alike, as the polyhedra are.
+    sorted corner numbers), so neighbouring cells cut a shared face alike, as the polyhedra are;
+    cells written with their own copies of their corners each make their own centre of it, at the
+    same place to the bit (corners summed in the order of their coordinates).
     """
     from scipy.spatial import ConvexHull
 
@@ -260,10 +266,11 @@ def _split_about_centre(points, cells, rows, out: ConvexCells) -> None:
                 tets.append([[*tri, base + i]])
             else:
                 local = hull.simplices[group]
-                key = out.face_key(corners[local.ravel()])
-                face = out.face_centres.get(key)  # a face of a cell split before, or numbered below
+                own = tuple(sorted(set(corners[local.ravel()].tolist())))
+                # a face of a cell split before, or numbered below (each copy of a face its own centre)
+                face = out.face_centres.get(own) if out.same_points is None else None
                 if face is None:
-                    face = -1 - face_numbers.setdefault(key, len(face_numbers))
+                    face = -1 - face_numbers.setdefault(own, len(face_numbers))
                 edges = _outline_edges(local)
                 tets.append(np.column_stack([corners[edges], np.full(len(edges), face),
                                              np.full(len(edges), base + i)]))
@@ -274,11 +281,12 @@ def _split_about_centre(points, cells, rows, out: ConvexCells) -> None:
     keys = sorted(face_numbers, key=len)
     number = np.empty(len(keys), dtype=np.int64)
     for j, key in enumerate(keys):
-        number[face_numbers[key]] = out.face_centres[key] = base + len(cells) + j
+        number[face_numbers[key]] = out.face_centres[out.face_key(key)] = base + len(cells) + j
     faces = tets[:, 2] < 0
     tets[faces, 2] = number[-1 - tets[faces, 2]]
     centres = points[cells].mean(axis=1)
-    face_corners = [np.array([k for k in keys if len(k) == n], dtype=np.int64) for n in sorted({len(k) for k in keys})]
+    face_corners = [in_coordinate_order(points, np.array([k for k in keys if len(k) == n], dtype=np.int64))
+                    for n in sorted({len(k) for k in keys})]
     earlier = np.zeros((out.n_centres, 3))  # centres of earlier blocks: only their shared face centres matter
     for key, at in out.face_centres.items():
         if len(points) <= at < base:  # (centres among the points, as a polyhedra split's, are there)
@@ -416,11 +424,14 @@ def _cone_from_centres(points: np.ndarray, kind: str, conn: np.ndarray, out: Con
     cells = np.arange(n, dtype=np.int64)
     quads = [face for face in FACES[kind] if len(face) == 4]
     F = np.concatenate([conn[:, list(face)] for face in quads])  # (q * n, 4), face after face
-    keys, inverse = unique_rows(sort_small_rows(out.places(F)))
-    number = _centre_numbers(keys, out.face_centres)
+    keys, inverse = unique_rows(sort_small_rows(F))
+    if out.same_points is None:  # the centres of faces shared with cells split before
+        number = _centre_numbers(keys, out.face_centres)
+    else:  # each cell's copy of a face its own centre (at the place of the others': merged with them)
+        number = np.full(len(keys), -1, dtype=np.int64)
     new = number < 0
     number[new] = base + n + np.arange(int(new.sum()))
-    out.face_centres.update(zip(map(tuple, keys[new].tolist()), number[new].tolist()))
+    out.face_centres.update(zip(map(out.face_key, keys[new].tolist()), number[new].tolist()))
     centre = number[inverse]
     owner_q = np.tile(cells, len(quads))
     tets = [np.column_stack([F[:, i], F[:, (i + 1) % 4], centre, base + owner_q]) for i in range(4)]
@@ -442,7 +453,7 @@ def _cone_from_centres(points: np.ndarray, kind: str, conn: np.ndarray, out: Con
     tets[flip, 0], tets[flip, 1] = tets[flip, 1].copy(), tets[flip, 0].copy()
     out.centre_corners.append(conn)
     if new.any():
-        out.centre_corners.append(keys[new])
+        out.centre_corners.append(in_coordinate_order(points, keys[new]))
     out.counts["beside"] = out.counts.get("beside", 0) + n
     out.counts["beside_pieces"] = out.counts.get("beside_pieces", 0) + len(tets)
     return tets, owner

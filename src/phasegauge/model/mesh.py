@@ -350,8 +350,9 @@ class Mesh:
 
     @cached_property
     def degenerate_cells(self) -> int:
-        """Number of cells with zero measure (to round-off)."""
-        m = self.cell_measures
+        """Number of cells with zero measure (to round-off; whole cells of a split mesh that have pieces)."""
+        m, parents = self.cell_measures, self.cell_parents
+        m = m if parents is None else np.bincount(parents, weights=m)[np.bincount(parents) > 0]
         scale = float(np.median(m)) if m.size else 0.0
         return int(np.sum(m <= 1e-12 * scale))
 

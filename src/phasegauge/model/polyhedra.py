@@ -64,6 +64,7 @@ from ..errors import UnsupportedMeshError
 from ._face_diagonals import cell_turn_totals, polyhedra_quad_cuts
 from ._geometry import cell_geometry
 from ._grouping import _bits, group_columns, index_dtype
+from ._places import corner_means, in_coordinate_order
 from ._split_neighbours import edge_twins, ordered_rows, sorted_with_places, split_neighbours
 from .cells import FACES
 
@@ -141,25 +142,7 @@ class PolyhedraSplit:
         ``values`` has shape (n_points,) or (n_points, ...); the result (n_centres,) or
         (n_centres, ...), in float64.
         """
-        return _means(values, self.centre_points, self.centre_offsets)
-
-
-def _means(values, points: np.ndarray, offsets: np.ndarray) -> np.ndarray:
-    """Per centre (``offsets``, (n + 1,)) the mean of the ``values`` of its corners ``points``, in float64."""
-    v = np.asarray(values, dtype=np.float64)
-    n = offsets.size - 1
-    if n <= 0:
-        return np.zeros((0,) + v.shape[1:])
-    out = np.empty((n,) + v.shape[1:])
-    chunk = 1 << 14  # centres at a time: their corners' values stay in cache (the same sums)
-    for lo in range(0, n, chunk):
-        hi = min(lo + chunk, n)
-        first = offsets[lo]
-        corners = v[points[first:offsets[hi]]]
-        sums = np.add.reduceat(corners, offsets[lo:hi] - first, axis=0)
-        counts = np.diff(offsets[lo:hi + 1])
-        np.divide(sums, counts.reshape((-1,) + (1,) * (v.ndim - 1)), out=out[lo:hi])
-    return out
+        return corner_means(values, self.centre_points, self.centre_offsets)
 
 
 class SplitCentres(NamedTuple):
@@ -371,7 +354,7 @@ def split_polyhedra(points: np.ndarray, face_points, face_offsets, face_cell, n_
         cell_counts = np.bincount(edge_cell[distinct], minlength=n_cells)
         del distinct
     cell_corners = cell_corners.astype(index_dtype(n_points), copy=False)
-    cell_xyz = _means(X, cell_corners, np.concatenate([[0], np.cumsum(cell_counts)]).astype(np.int64))
+    cell_xyz = corner_means(X, cell_corners, np.concatenate([[0], np.cumsum(cell_counts)]).astype(np.int64))
 
     # face centres: one per distinct face of five or more corners, and per distinct quad face whose
     # diagonals tie or whose triangles would turn a tetrahedron (the others cut along their shorter diagonal)
@@ -413,7 +396,7 @@ def split_polyhedra(points: np.ndarray, face_points, face_offsets, face_cell, n_
             number = np.arange(int(np.count_nonzero(with_centre)))
             corners = face_points[face_offsets[faces[with_centre]][:, None] + np.arange(k)]
         face_centre[faces[with_centre]] = n_points + n_face_centres + number
-        centre_parts.append(_in_coordinate_order(X, corners).ravel())
+        centre_parts.append(in_coordinate_order(X, corners).ravel())
         centre_counts.append(np.full(corners.shape[0], k, dtype=np.int64))
         n_face_centres += corners.shape[0]
     centre_parts.append(cell_corners)
@@ -476,7 +459,7 @@ def split_polyhedra(points: np.ndarray, face_points, face_offsets, face_cell, n_
     pyramid, pyramid_source = (_quad_pyramids(face_points, face_offsets, sizes, face_cell, cell_centre, source.dtype)
                                if pyramids else (None, None))
 
-    face_xyz = _means(X, centre_points[:centre_offsets[n_face_centres]], centre_offsets[:n_face_centres + 1])
+    face_xyz = corner_means(X, centre_points[:centre_offsets[n_face_centres]], centre_offsets[:n_face_centres + 1])
     Y = np.concatenate([X, face_xyz, cell_xyz])
     del face_xyz, cell_xyz
     volume = _signed_volumes(Y, tetra)
@@ -520,23 +503,6 @@ def _quad_pyramids(face_points, face_offsets, sizes, face_cell, cell_centre, dty
         keep = np.argsort(owner, kind="stable")
         pyramid, owner = pyramid[keep], owner[keep]
     return pyramid, owner
-
-
-def _in_coordinate_order(X: np.ndarray, corners: np.ndarray) -> np.ndarray:
-    """Each row of ``corners`` (point ids, (n, k)) put in the order of its points' coordinates (x, then y,
-    then z; ties in the row's order).
-
-    A centre is the mean of its corners summed in this order, so it is the same to the bit whichever
-    point ids name the corners: a face that each of its two cells writes with its own copies of the
-    corners gets one centre twice, and the copies and the centres merge as the mesh joins coincident
-    points (before, the sums in another order left cracks; found by review).
-    """
-    if corners.size == 0:
-        return corners
-    n, k = corners.shape
-    flat = corners.ravel()
-    order = np.lexsort((X[flat, 2], X[flat, 1], X[flat, 0], np.repeat(np.arange(n), k)))
-    return flat[order].reshape(n, k)
 
 
 def _fill_centred(tetra, source, face_points, nxt, centre_of_position, edge_cell, first_cell_centre: int) -> None:
