@@ -11,6 +11,8 @@ unit cube's volume and surface (elementary geometry); with cell data, the same c
 ordinary VTK cells, read by meshio [lib], as a second way to the same phase volume.
 """
 
+import warnings
+
 import numpy as np
 import pytest
 
@@ -236,3 +238,49 @@ def test_cells_of_three_kinds_written_with_their_own_copies_of_their_corners(tmp
     assert distance.max() < 1e-12
     expected = np.array([np.mean(cells) for cells in faces.values()])
     np.testing.assert_allclose(step.fields.point_data["cell"][at], expected, rtol=0, atol=1e-12)
+
+
+def test_convex_cells_split_about_their_centre_with_their_own_copies_of_their_corners(tmp_path):
+    # a roofed cube (9 corners) and two prisms (6) as convex point sets, split about their centres, and
+    # two hexahedra beside the cube: written with shared corners and with each cell's own copies, read
+    # alike (the same points, boundary faces and volume), and at a face between two cells the cell
+    # numbers' mean (each copy of a hull face its own centre; found by review: untested, the first copy's
+    # value before). Volumes: the unit cube, a roof of height 0.6 (pyramid: base x height / 3), two
+    # half-unit prisms, two unit cubes (elementary geometry)
+    cube = [(0, 0, 0), (1, 0, 0), (1, 1, 0), (0, 1, 0), (0, 0, 1), (1, 0, 1), (1, 1, 1), (0, 1, 1), (0.5, 0.5, 1.6)]
+    prism = [(1, 0, 0), (1, 1, 0), (1, 0, 1), (1, 1, 1), (2, 0.5, 0), (2, 0.5, 1)]
+    hex_a = [(-1, 0, 0), (0, 0, 0), (0, 1, 0), (-1, 1, 0), (-1, 0, 1), (0, 0, 1), (0, 1, 1), (-1, 1, 1)]
+    hex_b = [(0, -1, 0), (1, -1, 0), (1, 0, 0), (0, 0, 0), (0, -1, 1), (1, -1, 1), (1, 0, 1), (0, 0, 1)]
+    cells = [(cube, 41), (prism, 41), (hex_a, 12), (hex_b, 12), ([(x, y + 1, z) for x, y, z in prism], 41)]
+    read = {}
+    for own in (False, True):
+        points, stream, types, number, at = [], [], [], [], {}
+        for c, (corners, kind) in enumerate(cells):
+            ids = []
+            for p in corners:
+                if own or p not in at:
+                    at[p] = len(points)
+                    points.append(p)
+                    number.append(c)
+                ids.append(at[p])
+            stream += [len(ids), *ids]
+            types.append(kind)
+        grid = pv.UnstructuredGrid(np.array(stream), np.array(types, np.uint8), np.array(points, float))
+        grid.point_data["cell"] = np.array(number, float)
+        path = str(tmp_path / f"own_{own}.vtu")
+        grid.save(path)
+        with warnings.catch_warnings():
+            warnings.simplefilter("ignore")
+            read[own] = Series(path).read(0)
+    shared, apart = read[False].mesh, read[True].mesh
+    assert apart.n_points == shared.n_points
+    assert len(apart.boundary_faces[1]) == len(shared.boundary_faces[1])
+    assert apart.total_measure == pytest.approx(1 + 0.6 / 3 + 2 * 0.5 + 2, rel=1e-12)
+    assert shared.total_measure == pytest.approx(apart.total_measure, rel=1e-12)
+    from scipy.spatial import cKDTree
+
+    # the cube's faces with the first prism and the two hexahedra, and its own outer face at y = 1
+    faces = {(1, 0.5, 0.5): (0 + 1) / 2, (0, 0.5, 0.5): (0 + 2) / 2, (0.5, 0, 0.5): (0 + 3) / 2, (0.5, 1, 0.5): 0.0}
+    distance, where = cKDTree(apart.points).query(np.array(list(faces)))
+    assert distance.max() < 1e-12
+    np.testing.assert_allclose(read[True].fields.point_data["cell"][where], list(faces.values()), atol=1e-12)

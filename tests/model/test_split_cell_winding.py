@@ -64,3 +64,34 @@ def test_inverted_and_zero_measures_count_whole_cells():
     assert np.count_nonzero(mesh.cell_measures == 0) == 2 and mesh.signed_measures[3] == pytest.approx(-1 / 6)
     assert mesh.degenerate_cells == 1
     assert mesh.inverted_cells == 1
+
+
+def test_point_on_a_face_that_holds_the_first_slant():
+    # two tetrahedra of one cell (a bipyramid, convex) share a triangle whose plane holds the first
+    # direction a point on a face is moved along: moved along it, the point stays on the face, and a
+    # second direction finds it inside (found by review); elementary geometry: the bipyramid holds
+    # its shared triangle's inner points
+    from phasegauge.model._overlaps import _barycentric
+
+    s = np.array([0.5773, 0.3141, 0.7544])
+    s /= np.linalg.norm(s)
+    e = np.cross(s, [0, 0, 1.0])
+    e /= np.linalg.norm(e)
+    n = np.cross(s, e)
+    x = np.array([-s - e, -s + e, 2 * s, n, -n])
+    tetra = np.array([[0, 1, 2, 3], [0, 1, 2, 4]])
+    _, det = _barycentric(x[tetra], np.zeros((2, 3)))
+    tetra[det < 0, :2] = tetra[det < 0, 1::-1]
+    points = np.array([[0.0, 0, 0], 0.01 * n])  # on the shared triangle; just off it
+    held = _held_by_whole_cells(x, tetra, np.array([0, 0]), points, np.array([0, 0]), np.ones(2))
+    assert held.tolist() == [True, True]
+
+
+def test_a_flat_piece_counts_a_repeated_corner_once():
+    # a split cell of two pieces, one flat with a corner listed twice: no whole cell is degenerate, but
+    # the piece's corner mean takes its corners once each: (10 + 20 + 30) / 3 (found by review: the
+    # count of whole cells told the corner sums no corner repeats, and they gave 22.5)
+    points = np.array([[0.0, 0, 0], [1, 0, 0], [0, 1, 0], [0, 0, 1], [1, 1, 1]])
+    mesh = Mesh(points, [("tetra", np.array([[0, 1, 2, 3], [1, 2, 3, 3]]))], pieces=[np.array([0, 0])])
+    assert mesh.degenerate_cells == 0
+    np.testing.assert_allclose(mesh.point_to_cell(np.array([0.0, 10, 20, 30, 40])), [15.0, 20.0])

@@ -18,7 +18,7 @@ from ._geometry import cell_geometry
 from .corners import corner_sum
 
 __all__ = ["keeps_centroids", "mesh_geometry", "piece_measures", "cell_centroids_of", "whole_cell_centroids",
-           "add_whole_sums"]
+           "add_whole_sums", "zero_measures"]
 
 #: cells computed at a time (the chunk's corner coordinates and results stay small)
 _CHUNK = 1 << 16
@@ -196,3 +196,12 @@ def whole_cell_centroids(mesh) -> np.ndarray:
         return mesh.cell_centroids
     mesh.signed_measures  # noqa: B018  (the geometry's pass keeps them with the mesh)
     return mesh.memo(_WHOLE, lambda: _split_geometry(mesh, mesh.coordinates)[1])
+
+
+def zero_measures(measures: np.ndarray, parents: np.ndarray | None = None) -> int:
+    """How many cells have zero measure (to round-off against the median); with ``parents``, whole
+    cells (their pieces' measures summed; numbers with no piece left out)."""
+    if parents is not None:
+        measures = np.bincount(parents, weights=measures)[np.bincount(parents) > 0]
+    scale = float(np.median(measures)) if measures.size else 0.0
+    return int(np.sum(measures <= 1e-12 * scale))

@@ -207,14 +207,15 @@ def _held_by_whole_cells(x: np.ndarray, simplices: np.ndarray, parents: np.ndarr
     star-shaped overlap where it does not reach, turned against each other, and sum to 0 there).
 
     A point on a face between two pieces is held by neither, and the sum can miss one: such a point is
-    moved by a millionth of ``sizes`` (its cell's size) along a fixed slant and counted again. Pairs
-    are taken a chunk at a time (a cell's pieces each hold a row of the work).
+    moved by a millionth of ``sizes`` (its cell's size) along a fixed slant (a second one where it is
+    still on a face) and counted again. Pairs are taken a chunk at a time (a cell's pieces each hold a
+    row of the work).
     """
     order = None if np.all(parents[1:] >= parents[:-1]) else np.argsort(parents, kind="stable")
     start = np.searchsorted(parents, whole, sorter=order)
     count = np.searchsorted(parents, whole, side="right", sorter=order) - start
-    slant = np.array([0.5773, 0.3141, 0.7544, 0.1732])[:points.shape[1]]
-    slant /= np.linalg.norm(slant)
+    slants = [np.array(s)[:points.shape[1]] / np.linalg.norm(np.array(s)[:points.shape[1]])
+              for s in ((0.5773, 0.3141, 0.7544), (-0.2718, 0.8284, 0.4142))]
     held = np.zeros(whole.size, dtype=bool)
     total = np.cumsum(count)
     bounds = np.unique(np.concatenate([[0], np.searchsorted(total, np.arange(_PIECES, total[-1], _PIECES)),
@@ -223,10 +224,13 @@ def _held_by_whole_cells(x: np.ndarray, simplices: np.ndarray, parents: np.ndarr
         part = slice(int(lo), int(hi))
         pieces, pair = _pieces_of(start[part], count[part], order)
         winding, unsure = _winding(x, simplices[pieces], points[part][pair], pair, int(hi - lo))
-        if unsure.any():
+        for slant in slants:  # a second slant where the first runs along the face
+            if not unsure.any():
+                break
             moved = points[part] + 1e-6 * sizes[part][:, None] * slant
-            again, _ = _winding(x, simplices[pieces], moved[pair], pair, int(hi - lo))
+            again, still = _winding(x, simplices[pieces], moved[pair], pair, int(hi - lo))
             winding[unsure] = again[unsure]
+            unsure &= still
         held[part] = winding != 0
     return held
 

@@ -24,7 +24,7 @@ from functools import cached_property
 import numpy as np
 
 from ..errors import UnsupportedMeshError
-from ._centroids import cell_centroids_of, mesh_geometry, piece_measures
+from ._centroids import cell_centroids_of, mesh_geometry, piece_measures, zero_measures
 from ._conversions import corner_sums, linear_point_values
 from ._faces import (cell_adjacency, face_pairs, face_rows, face_topology, grid_face_numbers, grouped_faces,
                      local_faces, row_owners, unique_edges)
@@ -343,18 +343,18 @@ class Mesh:
     @cached_property
     def inverted_cells(self) -> int:
         """Number of cells whose orientation is opposite to the majority (whole cells of a split mesh)."""
-        s = self.signed_measures  # (a non-star cell's turned pieces are none: its signed sum counts)
-        s = s if self.cell_parents is None else np.bincount(self.cell_parents, weights=s)
+        s = self.signed_measures if self.cell_parents is None else np.bincount(self.cell_parents, self.signed_measures)
         majority = 1.0 if np.sum(s > 0) >= np.sum(s < 0) else -1.0
         return int(np.sum(s * majority < 0))
 
     @cached_property
     def degenerate_cells(self) -> int:
         """Number of cells with zero measure (to round-off; whole cells of a split mesh that have pieces)."""
-        m, parents = self.cell_measures, self.cell_parents
-        m = m if parents is None else np.bincount(parents, weights=m)[np.bincount(parents) > 0]
-        scale = float(np.median(m)) if m.size else 0.0
-        return int(np.sum(m <= 1e-12 * scale))
+        return zero_measures(self.cell_measures, self.cell_parents)
+
+    @cached_property
+    def _flat_cells(self) -> int:  # cells or pieces of zero measure (a corner twice, as the corner sums read it)
+        return zero_measures(self.cell_measures)
 
     @property
     def cell_centroids(self) -> np.ndarray:
@@ -414,7 +414,7 @@ class Mesh:
             indices[last:last + n * k] = block.connectivity.ravel()
             last += n * k
         m = sparse.csr_matrix((np.ones(nnz), indices, indptr), shape=(self.n_cells, self.n_points))
-        if any(b.cell_type == "polygon" for b in self.blocks) or self.degenerate_cells:
+        if any(b.cell_type == "polygon" for b in self.blocks) or self._flat_cells:
             m.sum_duplicates()
             m.data[:] = 1.0  # a corner repeated in a degenerate cell counts once
         return m
@@ -549,7 +549,7 @@ class Mesh:
     def _corner_sums_direct(self) -> bool:
         """True when every cell lists each corner once in a fixed-size block (no polygons, no
         degenerate cells): the incidence product is then a sum over connectivity columns."""
-        return not any(b.cell_type == "polygon" for b in self.blocks) and not self.degenerate_cells
+        return not any(b.cell_type == "polygon" for b in self.blocks) and not self._flat_cells
 
     def cell_to_point(self, values: np.ndarray, *, method: str = "linear") -> np.ndarray:
         """Point values reconstructed from the cells around each point.
