@@ -194,6 +194,67 @@ def test_group_columns_constant_and_empty():
     assert order.size == 0 and starts.size == 0
 
 
+@pytest.mark.parametrize("threads", [1, 2])
+def test_group_columns_in_buckets_against_numpy_lexsort(threads):
+    # 150 000 rows of 20 + 14 + 14 + 3 bits with 18 bits of position: one packed pass over all rows
+    # does not hold them, buckets of the first column's values do (the path taken is checked)
+    rng = np.random.default_rng(7)
+    distinct = np.stack([rng.integers(-1, 2 ** 20 - 1, 90_000), rng.integers(0, 2 ** 14, 90_000),
+                         rng.integers(0, 2 ** 14, 90_000), rng.integers(0, 8, 90_000)], axis=1)
+    rows = distinct[rng.integers(0, 90_000, 150_000)]
+    rows[::7, 0] = 5  # a crowded value of the leading column
+    columns = [rows[:, j].astype(np.int32) for j in range(4)]
+    lows = [int(c.min()) for c in columns]
+    widths = [_grouping._bits(int(c.max()) - lo + 1) for c, lo in zip(columns, lows)]
+    assert _grouping._bucketed_groups(columns, lows, widths) is not None
+    order, starts = _grouping.group_columns(columns, threads=threads)
+    # numpy.lexsort is stable: equal rows keep their order, as group_columns promises
+    assert np.array_equal(order, np.lexsort([rows[:, j] for j in (3, 2, 1, 0)]))
+    uniq, _ = _reference_groups(rows)
+    assert np.array_equal(rows[order[starts]], uniq)
+
+
+def test_group_columns_leading_column_too_crowded_for_buckets():
+    # one value of the leading column holds most rows: no bucket fits, the passes over all rows run
+    rng = np.random.default_rng(8)
+    rows = np.stack([np.where(rng.random(100_000) < 0.9, 3, rng.integers(0, 2 ** 20, 100_000)),
+                     rng.integers(0, 2 ** 21, 100_000), rng.integers(0, 2 ** 21, 100_000)], axis=1)
+    columns = [rows[:, j].copy() for j in range(3)]
+    lows = [int(c.min()) for c in columns]
+    widths = [_grouping._bits(int(c.max()) - lo + 1) for c, lo in zip(columns, lows)]
+    assert _grouping._bucketed_groups(columns, lows, widths) is None
+    order, starts = _grouping.group_columns(columns)
+    assert np.array_equal(order, np.lexsort([rows[:, j] for j in (2, 1, 0)]))  # numpy.lexsort (stable)
+    assert np.array_equal(rows[order[starts]], _reference_groups(rows)[0])
+
+
+def _reference_pairs(m):
+    """Face pairs by numpy alone: sorted corner rows grouped by np.unique, pairs by np.unique."""
+    rows, owners = [], []
+    for block, start in zip(m.blocks, m.block_offsets[:-1]):
+        for face in m._local_faces(block):
+            f = np.full((len(block), 4), -1, dtype=np.int64)
+            f[:, 4 - len(face):] = np.sort(block.connectivity[:, list(face)], axis=1)
+            rows.append(f)
+            owners.append(np.arange(start, start + len(block)))
+    rows, owners = np.concatenate(rows), np.concatenate(owners)
+    _, inverse, counts = np.unique(rows, axis=0, return_inverse=True, return_counts=True)
+    inverse = inverse.ravel()
+    twice = np.flatnonzero(counts[inverse] == 2)
+    twice = twice[np.argsort(inverse[twice], kind="stable")].reshape(-1, 2)
+    a, b = owners[twice[:, 0]], owners[twice[:, 1]]
+    apart = a != b
+    return np.unique(np.stack([np.minimum(a, b), np.maximum(a, b)], axis=1)[apart], axis=0)
+
+
+def test_face_topology_in_buckets_on_a_larger_mesh():
+    # 40^3 jittered hexahedra: 384 000 face rows whose corners (17 bits, offsets of 11) need two
+    # packed passes over all rows, or one over buckets; the same pairs as numpy's grouping
+    m = grid_mesh((40, 40, 40), kind="hexahedron", jitter=0.2)
+    assert np.array_equal(m.face_pairs, _reference_pairs(m))
+    assert len(m.boundary_faces[1]) == 6 * 40 * 40
+
+
 def _reference_topology(m):
     """Face pairs and boundary faces from numpy.unique on sorted corner rows."""
     rows, owners = [], []

@@ -112,23 +112,8 @@ def face_topology(mesh: Mesh, *, threads: int = 1) -> dict:
     del columns, lone
     # cells sharing a face: the two rows of every face seen twice
     shared = starts[sizes == 2]
-    first = row_owners(mesh, order[shared], row_starts)
-    high = row_owners(mesh, order[shared + 1], row_starts)
+    pairs, shared_faces = _cell_pairs(mesh, order[shared], order[shared + 1], row_starts)
     del shared
-    low = np.minimum(first, high)
-    np.maximum(first, high, out=high)
-    apart = low != high
-    key = low[apart].astype(np.int64)  # the product below needs 64 bits
-    key *= mesh.n_cells
-    key += high[apart]
-    del first, low, high, apart
-    shared_faces = int(key.size)  # faces of two different cells (a pair seen twice: cells that share two faces)
-    key = unique_ints(key, threads=threads)
-    # int32 where cell ids times a small count (faces per cell) still fit: users build
-    # table offsets as cell * width in the pairs' own dtype
-    pairs = np.empty((key.size, 2), dtype=np.int32 if mesh.n_cells < 2 ** 24 else np.int64)
-    np.divmod(key, np.int64(mesh.n_cells), out=(pairs[:, 0], pairs[:, 1]), casting="unsafe")
-    del key
     # face numbers of the cells that have quad faces (split by the contouring); others None
     numbers = [None] * len(mesh.blocks)
     quads = [b for b, block in enumerate(mesh.blocks) if block.cell_type in ("hexahedron", "wedge", "pyramid")]
@@ -144,6 +129,51 @@ def face_topology(mesh: Mesh, *, threads: int = 1) -> dict:
             numbers[b] = np.ascontiguousarray(ids.T)
     return {"pairs": pairs, "pair_count": int(pairs.shape[0]), "boundary": boundary, "numbers": numbers,
             "count": int(starts.size), "crowded": int(np.count_nonzero(sizes > 2)), "shared_faces": shared_faces}
+
+
+def _cell_pairs(mesh: Mesh, first: np.ndarray, second: np.ndarray, row_starts: np.ndarray) -> tuple:
+    """The distinct pairs of different cells that share a face, and how many faces they share.
+
+    ``first`` and ``second``: the two face rows (of :func:`face_rows`) of each face seen twice.
+    Returns ``pairs`` (n, 2), lower cell first, in increasing order (as ``np.unique`` of the
+    pairs orders them), and the number of faces of two different cells (cells that share two
+    faces count both). Each face's higher cell is written into the lower cell's row of a table
+    (cells, faces per cell) at the face's place; the rows are sorted (a few entries each, not one
+    sort of every pair) and read row after row.
+    """
+    cell, place = [], []  # per side: each face row's cell and its local face number there
+    counts = np.array([len(b) for b in mesh.blocks], dtype=np.int64)
+    for rows in (first, second):
+        rows = rows.astype(np.int64)
+        block = 0 if len(mesh.blocks) == 1 else np.searchsorted(row_starts, rows, side="right") - 1
+        local, owner = np.divmod(rows - row_starts[block], counts[block])
+        cell.append(owner + mesh.block_offsets[block])
+        place.append(local)
+    lower = cell[0] < cell[1]
+    low = np.where(lower, cell[0], cell[1])
+    high = np.where(lower, cell[1], cell[0])
+    at = np.where(lower, place[0], place[1])
+    del cell, place, lower
+    if np.any(low == high):  # a face both rows of which one cell owns: no pair
+        apart = low != high
+        low, high, at = low[apart], high[apart], at[apart]
+    # int32 where cell ids times a small count (faces per cell) still fit: users build
+    # table offsets as cell * width in the pairs' own dtype
+    dtype = np.int32 if mesh.n_cells < 2 ** 24 else np.int64
+    width = max(len(local_faces(block)) for block in mesh.blocks)
+    table = np.full((mesh.n_cells, width), mesh.n_cells, dtype=dtype)  # n_cells: no pair
+    at += low * width
+    table.ravel()[at] = high
+    del at, high
+    table.sort(axis=1)
+    keep = table < mesh.n_cells
+    keep[:, 1:] &= table[:, 1:] != table[:, :-1]  # cells that share two faces: one pair
+    kept = np.flatnonzero(keep)
+    del keep
+    pairs = np.empty((kept.size, 2), dtype=dtype)
+    pairs[:, 0] = kept // width
+    pairs[:, 1] = table.ravel()[kept]
+    return pairs, int(low.size)
 
 
 #: ``mesh.memo`` key of the face neighbours a reader gives with the tetrahedra it split cells into

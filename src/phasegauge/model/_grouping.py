@@ -189,8 +189,9 @@ def group_columns(columns: list, *, threads: int = 1) -> tuple[np.ndarray, np.nd
     equal rows are next to each other), and ``starts``, the first position of
     each group of equal rows in that order. Exact: the rows are sorted by
     their own values, packed in 63-bit digits (least significant digit first,
-    each pass stable), never by a hash. Each pass's sort on up to ``threads`` threads (the
-    same result on any number).
+    each pass stable), never by a hash; where that takes more than one pass, in one pass over
+    buckets of the leading column's values when they fit (:func:`_bucketed_groups`: the same
+    order and groups). Each pass's sort on up to ``threads`` threads (the same result on any number).
 
     References
     ----------
@@ -217,6 +218,10 @@ def group_columns(columns: list, *, threads: int = 1) -> tuple[np.ndarray, np.nd
         digits.append(current)
     if not digits:  # every row is the same
         return np.arange(n, dtype=np.int64), np.zeros(1, dtype=np.int64)
+    if len(digits) > 1:  # one pass in buckets of the leading column, where they fit in 63 bits
+        found = _bucketed_groups(columns, lows, widths, threads=threads)
+        if found is not None:
+            return found
     order, ranks = None, []  # ranks: per digit done, the rank of each row's digit value, in order
     index = index_dtype(n)
     for digit in digits:
@@ -252,6 +257,84 @@ def group_columns(columns: list, *, threads: int = 1) -> tuple[np.ndarray, np.nd
     del ordered
     for r in ranks:
         new[1:] |= r[1:] != r[:-1]
+    return order, np.flatnonzero(new)
+
+
+#: bins of the leading column's values that :func:`_bucketed_groups` gathers into buckets
+_BINS_BITS = 12
+
+
+def _bucketed_groups(columns: list, lows: list, widths: list, *, threads: int = 1):
+    """:func:`group_columns`' ``order`` and ``starts`` in one sorting pass per bucket, or None.
+
+    Rows are parted into buckets of consecutive values of the leading column (the first whose
+    values differ), each bucket small enough that its rows' packed key (leading column from the
+    bucket's lowest value, the later columns, the position in the bucket) fits in 63 bits. The
+    buckets follow each other in the leading column's order and every row of a group falls in
+    one bucket, so sorting each bucket (on up to ``threads`` threads) gives the same order and
+    groups as the passes over all rows (least significant digit first), in one pass of small
+    sorts instead of several of all rows: most significant digit first, then by sorting (Knuth,
+    TAOCP vol. 3, 5.2.5). None when one bin of the leading column alone does not fit.
+    """
+    n = columns[0].size
+    lead = next(j for j, w in enumerate(widths) if w > 0)
+    later = [j for j in range(lead + 1, len(columns)) if widths[j] > 0]
+    rest = sum(widths[j] for j in later)
+    shift = max(widths[lead] - _BINS_BITS, 0)
+    binned = columns[lead] - columns[lead].dtype.type(lows[lead])
+    binned >>= shift
+    total = np.concatenate([[0], np.cumsum(np.bincount(binned))])
+
+    def fits(a: int, b: int) -> bool:  # bins a .. b - 1 as one bucket
+        return _bits((b - a) << shift) + rest + max(_bits(int(total[b] - total[a])), 1) <= 63
+
+    edges, a, bins = [0], 0, total.size - 1
+    while a < bins:
+        if not fits(a, a + 1):
+            return None
+        b = a + 1
+        while b < bins and fits(a, b + 1):  # as many bins as fit (a bucket per step of the count)
+            b += 1
+        edges.append(b)
+        a = b
+    if len(edges) - 1 > 1 << 16:
+        return None
+    bucket = np.repeat(np.arange(len(edges) - 1, dtype=np.uint8 if len(edges) <= 257 else np.uint16),
+                       np.diff(edges))[binned]
+    del binned
+    by_bucket = np.argsort(bucket, kind="stable")  # a radix sort for these small ints: rows in order within
+    del bucket
+    at = total[edges]
+    index = index_dtype(n)
+    order = np.empty(n, dtype=index)
+    new = np.empty(n, dtype=bool)
+
+    def sort_bucket(k: int) -> None:  # writes its own slice of order and new
+        rows = by_bucket[at[k]:at[k + 1]]
+        m = rows.size
+        if m == 0:
+            return
+        spare = max(_bits(m), 1)
+        key = columns[lead][rows].astype(np.int64)
+        key -= lows[lead] + (int(edges[k]) << shift)
+        room = rest
+        key <<= np.int64(room)
+        for j in later:
+            room -= widths[j]
+            part = columns[j][rows].astype(np.int64)
+            part -= lows[j]
+            part <<= np.int64(room)
+            key |= part
+        key <<= np.int64(spare)
+        key |= np.arange(m, dtype=np.int64)
+        key.sort()
+        order[at[k]:at[k + 1]] = rows[key & np.int64((1 << spare) - 1)]
+        key >>= np.int64(spare)
+        new[at[k]] = True
+        np.not_equal(key[1:], key[:-1], out=new[at[k] + 1:at[k + 1]])
+
+    for _ in ordered_map(sort_bucket, range(len(edges) - 1), threads=threads):
+        pass
     return order, np.flatnonzero(new)
 
 
