@@ -141,14 +141,22 @@ def _cell_pairs(mesh: Mesh, first: np.ndarray, second: np.ndarray, row_starts: n
     (cells, faces per cell) at the face's place; the rows are sorted (a few entries each, not one
     sort of every pair) and read row after row.
     """
+    dtype = np.int32 if mesh.n_cells < 2 ** 24 else np.int64
+    width = max(len(local_faces(block)) for block in mesh.blocks)
+    flat = index_dtype(mesh.n_cells * width)  # a place in the table below
     cell, place = [], []  # per side: each face row's cell and its local face number there
-    counts = np.array([len(b) for b in mesh.blocks], dtype=np.int64)
     for rows in (first, second):
-        rows = rows.astype(np.int64)
-        block = 0 if len(mesh.blocks) == 1 else np.searchsorted(row_starts, rows, side="right") - 1
-        local, owner = np.divmod(rows - row_starts[block], counts[block])
-        cell.append(owner + mesh.block_offsets[block])
-        place.append(local)
+        if len(mesh.blocks) == 1:  # in the rows' own (narrow) dtype
+            local, owner = np.divmod(rows, rows.dtype.type(len(mesh.blocks[0])))
+        else:
+            rows = rows.astype(np.int64)
+            block = np.searchsorted(row_starts, rows, side="right") - 1
+            counts = np.array([len(b) for b in mesh.blocks], dtype=np.int64)
+            local, owner = np.divmod(rows - row_starts[block], counts[block])
+            owner += mesh.block_offsets[block]
+        cell.append(owner.astype(flat, copy=False))
+        place.append(local.astype(flat, copy=False))
+        del local, owner
     lower = cell[0] < cell[1]
     low = np.where(lower, cell[0], cell[1])
     high = np.where(lower, cell[1], cell[0])
@@ -159,10 +167,11 @@ def _cell_pairs(mesh: Mesh, first: np.ndarray, second: np.ndarray, row_starts: n
         low, high, at = low[apart], high[apart], at[apart]
     # int32 where cell ids times a small count (faces per cell) still fit: users build
     # table offsets as cell * width in the pairs' own dtype
-    dtype = np.int32 if mesh.n_cells < 2 ** 24 else np.int64
-    width = max(len(local_faces(block)) for block in mesh.blocks)
     table = np.full((mesh.n_cells, width), mesh.n_cells, dtype=dtype)  # n_cells: no pair
-    at += low * width
+    shared_faces = int(low.size)
+    low *= flat(width)
+    at += low
+    del low
     table.ravel()[at] = high
     del at, high
     table.sort(axis=1)
@@ -173,7 +182,7 @@ def _cell_pairs(mesh: Mesh, first: np.ndarray, second: np.ndarray, row_starts: n
     pairs = np.empty((kept.size, 2), dtype=dtype)
     pairs[:, 0] = kept // width
     pairs[:, 1] = table.ravel()[kept]
-    return pairs, int(low.size)
+    return pairs, shared_faces
 
 
 #: ``mesh.memo`` key of the face neighbours a reader gives with the tetrahedra it split cells into
