@@ -228,6 +228,21 @@ def test_group_columns_leading_column_too_crowded_for_buckets():
     assert np.array_equal(rows[order[starts]], _reference_groups(rows)[0])
 
 
+def test_group_columns_in_buckets_with_an_int32_column_spanning_its_range():
+    # an int32 leading column from -2**31 to 2**31 - 1: its offsets from the low need int64
+    rng = np.random.default_rng(9)
+    first = rng.integers(-2 ** 31, 2 ** 31, 50_000).astype(np.int32)
+    first[:2] = (-2 ** 31, 2 ** 31 - 1)
+    rows = np.stack([first, rng.integers(0, 2 ** 20, 50_000)], axis=1)
+    columns = [first, rows[:, 1].copy()]
+    lows = [int(c.min()) for c in columns]
+    widths = [_grouping._bits(int(c.max()) - lo + 1) for c, lo in zip(columns, lows)]
+    assert _grouping._bucketed_groups(columns, lows, widths) is not None
+    order, starts = _grouping.group_columns(columns)
+    assert np.array_equal(order, np.lexsort([rows[:, 1], rows[:, 0]]))  # numpy.lexsort (stable)
+    assert np.array_equal(rows[order[starts]], _reference_groups(rows)[0])
+
+
 def _reference_pairs(m):
     """Face pairs by numpy alone: sorted corner rows grouped by np.unique, pairs by np.unique."""
     rows, owners = [], []

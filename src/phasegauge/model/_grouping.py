@@ -281,7 +281,11 @@ def _bucketed_groups(columns: list, lows: list, widths: list, *, threads: int = 
     later = [j for j in range(lead + 1, len(columns)) if widths[j] > 0]
     rest = sum(widths[j] for j in later)
     shift = max(widths[lead] - _BINS_BITS, 0)
-    binned = columns[lead] - columns[lead].dtype.type(lows[lead])
+    values = columns[lead]
+    if widths[lead] >= 8 * values.dtype.itemsize - 1:  # the offsets from the low would wrap in its dtype
+        values = values.astype(np.int64)
+    binned = values - values.dtype.type(lows[lead])
+    del values
     binned >>= shift
     total = np.concatenate([[0], np.cumsum(np.bincount(binned))])
 
