@@ -266,8 +266,29 @@ def test_face_topology_in_buckets_on_a_larger_mesh():
     # 40^3 jittered hexahedra: 384 000 face rows whose corners (17 bits, offsets of 11) need two
     # packed passes over all rows, or one over buckets; the same pairs as numpy's grouping
     m = grid_mesh((40, 40, 40), kind="hexahedron", jitter=0.2)
-    assert np.array_equal(m.face_pairs, _reference_pairs(m))
+    taken = []
+    real = _grouping._bucketed_groups
+    with pytest.MonkeyPatch.context() as patch:
+        patch.setattr(_grouping, "_bucketed_groups", lambda *a, **k: taken.append(real(*a, **k)) or taken[-1])
+        pairs = m.face_pairs
+    assert taken and taken[0] is not None  # the bucketed path was taken
+    reference = _reference_pairs(m)
+    assert np.array_equal(pairs, reference)
+    assert m._face_topology["shared_faces"] == len(reference)  # no two cells share two faces here
     assert len(m.boundary_faces[1]) == 6 * 40 * 40
+
+
+def test_cell_pairs_beside_a_polygon_of_many_sides():
+    # a 40-sided polygon ringed by triangles: past the table's width the pairs come from one sort;
+    # the same pairs as numpy's grouping
+    k = 40
+    angle = 2 * np.pi * np.arange(k) / k
+    inner = np.stack([np.cos(angle), np.sin(angle)], axis=1)
+    outer = 2.0 * np.stack([np.cos(angle + np.pi / k), np.sin(angle + np.pi / k)], axis=1)
+    ring = np.stack([np.arange(k), (np.arange(k) + 1) % k, k + np.arange(k)], axis=1)
+    m = Mesh(np.vstack([inner, outer]), [("polygon", np.arange(k)[None, :]), ("triangle", ring)])
+    assert np.array_equal(m.face_pairs, _reference_pairs(m))
+    assert m._face_topology["shared_faces"] == k
 
 
 def _reference_topology(m):

@@ -143,6 +143,8 @@ def _cell_pairs(mesh: Mesh, first: np.ndarray, second: np.ndarray, row_starts: n
     """
     dtype = np.int32 if mesh.n_cells < 2 ** 24 else np.int64
     width = max(len(local_faces(block)) for block in mesh.blocks)
+    if width > _TABLE_WIDTH:  # a polygon of many sides would widen every cell's row: one sort of the pairs
+        return _sorted_pairs(mesh, first, second, row_starts, dtype)
     flat = index_dtype(mesh.n_cells * width)  # a place in the table below
     cell, place = [], []  # per side: each face row's cell and its local face number there
     for rows in (first, second):
@@ -182,6 +184,23 @@ def _cell_pairs(mesh: Mesh, first: np.ndarray, second: np.ndarray, row_starts: n
     pairs = np.empty((kept.size, 2), dtype=dtype)
     pairs[:, 0] = kept // width
     pairs[:, 1] = table.ravel()[kept]
+    return pairs, shared_faces
+
+
+#: most faces per cell for which :func:`_cell_pairs` reads the pairs from a table of cells by faces
+_TABLE_WIDTH = 8
+
+
+def _sorted_pairs(mesh: Mesh, first: np.ndarray, second: np.ndarray, row_starts: np.ndarray, dtype) -> tuple:
+    """:func:`_cell_pairs` by one sort of every pair's key (for cells of many faces)."""
+    one, two = row_owners(mesh, first, row_starts), row_owners(mesh, second, row_starts)
+    low, high = np.minimum(one, two), np.maximum(one, two)
+    apart = low != high
+    key = low[apart] * np.int64(mesh.n_cells) + high[apart]
+    shared_faces = int(key.size)
+    key = unique_ints(key)
+    pairs = np.empty((key.size, 2), dtype=dtype)
+    np.divmod(key, np.int64(mesh.n_cells), out=(pairs[:, 0], pairs[:, 1]), casting="unsafe")
     return pairs, shared_faces
 
 
