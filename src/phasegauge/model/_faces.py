@@ -66,9 +66,22 @@ def row_owners(mesh: Mesh, rows: np.ndarray, row_starts: np.ndarray) -> np.ndarr
     """The cell that owns each face row of :func:`face_rows`."""
     if len(mesh.blocks) == 1:
         return rows.astype(np.int64) % len(mesh.blocks[0])  # int64 whatever the promotion rules
+    return _owners_and_places(mesh, rows, row_starts)[0]
+
+
+def _owners_and_places(mesh: Mesh, rows: np.ndarray, row_starts: np.ndarray) -> tuple:
+    """The cell that owns each face row of :func:`face_rows`, and the row's local face number there
+    (row ``row_starts[b] + j * n_b + i`` is local face j of cell i of block b); one block's in the
+    rows' own dtype, several blocks' in int64."""
+    if len(mesh.blocks) == 1:
+        local, owner = np.divmod(rows, rows.dtype.type(len(mesh.blocks[0])))
+        return owner, local
+    rows = rows.astype(np.int64)
     block = np.searchsorted(row_starts, rows, side="right") - 1
     n = np.array([len(b) for b in mesh.blocks], dtype=np.int64)
-    return mesh.block_offsets[block] + (rows - row_starts[block]) % n[block]
+    local, owner = np.divmod(rows - row_starts[block], n[block])
+    owner += mesh.block_offsets[block]
+    return owner, local
 
 
 def _shift_later_columns(columns: np.ndarray, sign: int) -> None:
@@ -112,7 +125,7 @@ def face_topology(mesh: Mesh, *, threads: int = 1) -> dict:
     del columns, lone
     # cells sharing a face: the two rows of every face seen twice
     shared = starts[sizes == 2]
-    pairs, shared_faces = _cell_pairs(mesh, order[shared], order[shared + 1], row_starts)
+    pairs, shared_faces = _cell_pairs(mesh, order[shared], order[shared + 1], row_starts, threads=threads)
     del shared
     # face numbers of the cells that have quad faces (split by the contouring); others None
     numbers = [None] * len(mesh.blocks)
@@ -131,7 +144,8 @@ def face_topology(mesh: Mesh, *, threads: int = 1) -> dict:
             "count": int(starts.size), "crowded": int(np.count_nonzero(sizes > 2)), "shared_faces": shared_faces}
 
 
-def _cell_pairs(mesh: Mesh, first: np.ndarray, second: np.ndarray, row_starts: np.ndarray) -> tuple:
+def _cell_pairs(mesh: Mesh, first: np.ndarray, second: np.ndarray, row_starts: np.ndarray, *,
+                threads: int = 1) -> tuple:
     """The distinct pairs of different cells that share a face, and how many faces they share.
 
     ``first`` and ``second``: the two face rows (of :func:`face_rows`) of each face seen twice.
@@ -139,23 +153,17 @@ def _cell_pairs(mesh: Mesh, first: np.ndarray, second: np.ndarray, row_starts: n
     pairs orders them), and the number of faces of two different cells (cells that share two
     faces count both). Each face's higher cell is written into the lower cell's row of a table
     (cells, faces per cell) at the face's place; the rows are sorted (a few entries each, not one
-    sort of every pair) and read row after row.
+    sort of every pair) and read row after row; past :data:`_TABLE_WIDTH` faces a cell, one sort of
+    every pair's key, on up to ``threads`` threads.
     """
     dtype = np.int32 if mesh.n_cells < 2 ** 24 else np.int64
     width = max(len(local_faces(block)) for block in mesh.blocks)
     if width > _TABLE_WIDTH:  # a polygon of many sides would widen every cell's row: one sort of the pairs
-        return _sorted_pairs(mesh, first, second, row_starts, dtype)
+        return _sorted_pairs(mesh, first, second, row_starts, dtype, threads)
     flat = index_dtype(mesh.n_cells * width)  # a place in the table below
     cell, place = [], []  # per side: each face row's cell and its local face number there
     for rows in (first, second):
-        if len(mesh.blocks) == 1:  # in the rows' own (narrow) dtype
-            local, owner = np.divmod(rows, rows.dtype.type(len(mesh.blocks[0])))
-        else:
-            rows = rows.astype(np.int64)
-            block = np.searchsorted(row_starts, rows, side="right") - 1
-            counts = np.array([len(b) for b in mesh.blocks], dtype=np.int64)
-            local, owner = np.divmod(rows - row_starts[block], counts[block])
-            owner += mesh.block_offsets[block]
+        owner, local = _owners_and_places(mesh, rows, row_starts)
         cell.append(owner.astype(flat, copy=False))
         place.append(local.astype(flat, copy=False))
         del local, owner
@@ -191,14 +199,15 @@ def _cell_pairs(mesh: Mesh, first: np.ndarray, second: np.ndarray, row_starts: n
 _TABLE_WIDTH = 8
 
 
-def _sorted_pairs(mesh: Mesh, first: np.ndarray, second: np.ndarray, row_starts: np.ndarray, dtype) -> tuple:
+def _sorted_pairs(mesh: Mesh, first: np.ndarray, second: np.ndarray, row_starts: np.ndarray, dtype,
+                  threads: int) -> tuple:
     """:func:`_cell_pairs` by one sort of every pair's key (for cells of many faces)."""
     one, two = row_owners(mesh, first, row_starts), row_owners(mesh, second, row_starts)
     low, high = np.minimum(one, two), np.maximum(one, two)
     apart = low != high
     key = low[apart] * np.int64(mesh.n_cells) + high[apart]
     shared_faces = int(key.size)
-    key = unique_ints(key)
+    key = unique_ints(key, threads=threads)
     pairs = np.empty((key.size, 2), dtype=dtype)
     np.divmod(key, np.int64(mesh.n_cells), out=(pairs[:, 0], pairs[:, 1]), casting="unsafe")
     return pairs, shared_faces

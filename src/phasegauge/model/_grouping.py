@@ -297,12 +297,11 @@ def _bucketed_groups(columns: list, lows: list, widths: list, *, threads: int = 
         if not fits(a, a + 1):
             return None
         b = a + 1
-        while b < bins and fits(a, b + 1):  # as many bins as fit (a bucket per step of the count)
+        while b < bins and fits(a, b + 1):  # as many bins as fit in one bucket
             b += 1
         edges.append(b)
         a = b
-    if len(edges) - 1 > 1 << 16:
-        return None
+    # at most 2**_BINS_BITS buckets: uint16 numbers them all
     bucket = np.repeat(np.arange(len(edges) - 1, dtype=np.uint8 if len(edges) <= 257 else np.uint16),
                        np.diff(edges))[binned]
     del binned

@@ -214,8 +214,8 @@ def _held_by_whole_cells(x: np.ndarray, simplices: np.ndarray, parents: np.ndarr
     order = None if np.all(parents[1:] >= parents[:-1]) else np.argsort(parents, kind="stable")
     start = np.searchsorted(parents, whole, sorter=order)
     count = np.searchsorted(parents, whole, side="right", sorter=order) - start
-    slants = [np.array(s)[:points.shape[1]] / np.linalg.norm(np.array(s)[:points.shape[1]])
-              for s in ((0.5773, 0.3141, 0.7544), (-0.2718, 0.8284, 0.4142))]
+    slants = [s / np.linalg.norm(s) for s in np.array([[0.5773, 0.3141, 0.7544], [-0.2718, 0.8284, 0.4142]])
+              [:, :points.shape[1]]]
     held = np.zeros(whole.size, dtype=bool)
     total = np.cumsum(count)
     bounds = np.unique(np.concatenate([[0], np.searchsorted(total, np.arange(_PIECES, total[-1], _PIECES)),
