@@ -214,6 +214,34 @@ def test_group_columns_in_buckets_against_numpy_lexsort(threads):
     assert np.array_equal(rows[order[starts]], uniq)
 
 
+@pytest.mark.parametrize("threads", [1, 2])
+def test_group_columns_in_buckets_of_capped_rows(threads):
+    # buckets capped at 500 rows: some 300 buckets (numbered in uint16), and a value of the leading
+    # column holding 20 000 rows (more than the cap: a bin alone may) in a bucket of its own;
+    # the same order as numpy.lexsort (stable) and the same groups as numpy.unique
+    rng = np.random.default_rng(10)
+    distinct = np.stack([rng.integers(0, 2 ** 20, 60_000), rng.integers(0, 2 ** 16, 60_000),
+                         rng.integers(0, 2 ** 16, 60_000)], axis=1)
+    rows = distinct[rng.integers(0, 60_000, 150_000)]
+    rows[:20_000, 0] = 777
+    columns = [rows[:, j].copy() for j in range(3)]
+    lows = [int(c.min()) for c in columns]
+    widths = [_grouping._bits(int(c.max()) - lo + 1) for c, lo in zip(columns, lows)]
+    with pytest.MonkeyPatch.context() as patch:
+        patch.setattr(_grouping, "_BUCKET_ROWS", 500)
+        shift = widths[0] - _grouping._BINS_BITS
+        total = np.concatenate([[0], np.cumsum(np.bincount((rows[:, 0] - lows[0]) >> shift))])
+        edges = np.array(_grouping._bucket_edges(total, shift, widths[1] + widths[2]))
+        assert _grouping._bucketed_groups(columns, lows, widths, threads=threads) is not None
+        order, starts = _grouping.group_columns(columns, threads=threads)
+    held = total[edges[1:]] - total[edges[:-1]]
+    assert edges.size - 1 > 257  # more buckets than uint8 numbers
+    assert np.all((held <= 500) | (np.diff(edges) == 1))  # past the cap only a bin alone
+    assert held.max() >= 20_000
+    assert np.array_equal(order, np.lexsort([rows[:, j] for j in (2, 1, 0)]))
+    assert np.array_equal(rows[order[starts]], _reference_groups(rows)[0])
+
+
 def test_group_columns_leading_column_too_crowded_for_buckets():
     # one value of the leading column holds most rows: no bucket fits, the passes over all rows run
     rng = np.random.default_rng(8)

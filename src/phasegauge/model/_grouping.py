@@ -262,6 +262,10 @@ def group_columns(columns: list, *, threads: int = 1) -> tuple[np.ndarray, np.nd
 
 #: bins of the leading column's values that :func:`_bucketed_groups` gathers into buckets
 _BINS_BITS = 12
+#: rows of a bucket of :func:`_bucketed_groups` past which it takes no more bins (a bin alone may
+#: hold more): each sort's temporaries stay near 2 MB (buckets of half the rows took 92 MB of the
+#: 205 MB peak of the grouping of 1M tetrahedra's 4M face rows on two threads)
+_BUCKET_ROWS = 1 << 16
 
 
 def _bucketed_groups(columns: list, lows: list, widths: list, *, threads: int = 1):
@@ -269,7 +273,8 @@ def _bucketed_groups(columns: list, lows: list, widths: list, *, threads: int = 
 
     Rows are parted into buckets of consecutive values of the leading column (the first whose
     values differ), each bucket small enough that its rows' packed key (leading column from the
-    bucket's lowest value, the later columns, the position in the bucket) fits in 63 bits. The
+    bucket's lowest value, the later columns, the position in the bucket) fits in 63 bits and
+    its sort stays small (:func:`_bucket_edges`). The
     buckets follow each other in the leading column's order and every row of a group falls in
     one bucket, so sorting each bucket (on up to ``threads`` threads) gives the same order and
     groups as the passes over all rows (least significant digit first), in one pass of small
@@ -288,19 +293,9 @@ def _bucketed_groups(columns: list, lows: list, widths: list, *, threads: int = 
     del values
     binned >>= shift
     total = np.concatenate([[0], np.cumsum(np.bincount(binned))])
-
-    def fits(a: int, b: int) -> bool:  # bins a .. b - 1 as one bucket
-        return _bits((b - a) << shift) + rest + max(_bits(int(total[b] - total[a])), 1) <= 63
-
-    edges, a, bins = [0], 0, total.size - 1
-    while a < bins:
-        if not fits(a, a + 1):
-            return None
-        b = a + 1
-        while b < bins and fits(a, b + 1):  # as many bins as fit in one bucket
-            b += 1
-        edges.append(b)
-        a = b
+    edges = _bucket_edges(total, shift, rest)
+    if edges is None:
+        return None
     # at most 2**_BINS_BITS buckets: uint16 numbers them all
     bucket = np.repeat(np.arange(len(edges) - 1, dtype=np.uint8 if len(edges) <= 257 else np.uint16),
                        np.diff(edges))[binned]
@@ -339,6 +334,28 @@ def _bucketed_groups(columns: list, lows: list, widths: list, *, threads: int = 
     for _ in ordered_map(sort_bucket, range(len(edges) - 1), threads=threads):
         pass
     return order, np.flatnonzero(new)
+
+
+def _bucket_edges(total: np.ndarray, shift: int, rest: int) -> list | None:
+    """The first bin of every bucket of :func:`_bucketed_groups` and, last, the number of bins; None
+    when one bin alone does not fit. ``total``: the rows before each bin (and all rows, last);
+    ``shift``: the bits of the leading column's values within a bin; ``rest``: the later columns' bits.
+    A bucket takes bins while its key fits in 63 bits and it holds at most :data:`_BUCKET_ROWS`
+    rows (a bin alone may hold more)."""
+
+    def fits(a: int, b: int) -> bool:  # bins a .. b - 1 as one bucket
+        return _bits((b - a) << shift) + rest + max(_bits(int(total[b] - total[a])), 1) <= 63
+
+    edges, a, bins = [0], 0, total.size - 1
+    while a < bins:
+        if not fits(a, a + 1):
+            return None
+        b = a + 1
+        while b < bins and total[b + 1] - total[a] <= _BUCKET_ROWS and fits(a, b + 1):
+            b += 1
+        edges.append(b)
+        a = b
+    return edges
 
 
 def unique_rows(rows: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
