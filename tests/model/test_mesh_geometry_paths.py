@@ -216,7 +216,7 @@ def test_group_columns_in_buckets_against_numpy_lexsort(threads):
 
 @pytest.mark.parametrize("threads", [1, 2])
 def test_group_columns_in_buckets_of_capped_rows(threads):
-    # buckets capped at 500 rows: some 300 buckets (numbered in uint16), and a value of the leading
+    # buckets capped at 500 rows: some 270 buckets (numbered in uint16), and a value of the leading
     # column holding 20 000 rows (more than the cap: a bin alone may) in a bucket of its own;
     # the same order as numpy.lexsort (stable) and the same groups as numpy.unique
     rng = np.random.default_rng(10)
@@ -238,6 +238,26 @@ def test_group_columns_in_buckets_of_capped_rows(threads):
     assert edges.size - 1 > 257  # more buckets than uint8 numbers
     assert np.all((held <= 500) | (np.diff(edges) == 1))  # past the cap only a bin alone
     assert held.max() >= 20_000
+    assert np.array_equal(order, np.lexsort([rows[:, j] for j in (2, 1, 0)]))
+    assert np.array_equal(rows[order[starts]], _reference_groups(rows)[0])
+
+
+@pytest.mark.parametrize("count", [256, 257])
+def test_group_columns_in_as_many_buckets_as_uint8_numbers_and_one_more(count):
+    # one row a bucket (cap 1) and three rows a value of the leading column: 256 buckets are the
+    # most uint8 numbers, 257 take uint16; numpy.lexsort's order (stable) and numpy.unique's groups
+    rng = np.random.default_rng(11)
+    rows = np.stack([np.repeat(np.arange(count), 3), rng.integers(0, 2 ** 26, 3 * count),
+                     rng.integers(0, 2 ** 26, 3 * count)], axis=1)
+    rows[1::3, 1:] = rows[::3, 1:]  # equal rows: groups of two
+    columns = [rows[:, j].copy() for j in range(3)]
+    lows = [int(c.min()) for c in columns]
+    widths = [_grouping._bits(int(c.max()) - lo + 1) for c, lo in zip(columns, lows)]
+    with pytest.MonkeyPatch.context() as patch:
+        patch.setattr(_grouping, "_BUCKET_ROWS", 1)
+        total = np.concatenate([[0], np.cumsum(np.bincount(rows[:, 0]))])
+        assert len(_grouping._bucket_edges(total, 0, widths[1] + widths[2])) - 1 == count
+        order, starts = _grouping.group_columns(columns)
     assert np.array_equal(order, np.lexsort([rows[:, j] for j in (2, 1, 0)]))
     assert np.array_equal(rows[order[starts]], _reference_groups(rows)[0])
 

@@ -274,7 +274,7 @@ def _bucketed_groups(columns: list, lows: list, widths: list, *, threads: int = 
     Rows are parted into buckets of consecutive values of the leading column (the first whose
     values differ), each bucket small enough that its rows' packed key (leading column from the
     bucket's lowest value, the later columns, the position in the bucket) fits in 63 bits and
-    its sort stays small (:func:`_bucket_edges`). The
+    its sort stays small (:func:`_bucket_edges`; a bin alone may hold more). The
     buckets follow each other in the leading column's order and every row of a group falls in
     one bucket, so sorting each bucket (on up to ``threads`` threads) gives the same order and
     groups as the passes over all rows (least significant digit first), in one pass of small
