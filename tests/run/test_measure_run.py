@@ -5,7 +5,9 @@ import os
 import signal
 import subprocess
 import sys
+import threading
 import time
+import warnings
 
 import numpy as np
 import pandas as pd
@@ -340,6 +342,55 @@ def test_threads_give_the_same_tables_and_are_recorded(tmp_path, monkeypatch):
         pd.testing.assert_frame_equal(one, four, check_exact=True)
     res = CliRunner().invoke(main, ["measure", listing, "-f", "alpha", "--threads", "0", "-o", str(tmp_path / "b")])
     assert res.exit_code == 2 and "threads must be a whole number of at least 1" in res.output
+
+
+def test_sections_and_droplets_beside_give_one_threads_tables_and_warnings_in_order(tmp_path, monkeypatch):
+    """Sections and droplets measured on threads beside the widths (every step, the first building the
+    section operator): the steps, profiles and droplets of one thread bit for bit, and the same warnings
+    in the same order; the sections' no-net-flow warning given by the run, not lost on the thread."""
+    from phasegauge.analysis import droplets, mixing
+    from phasegauge.run import step
+
+    monkeypatch.setattr(step, "THREADED_CELLS", 0)
+    mesh = grid_mesh((24, 24))
+    x, y = mesh.cell_centroids[:, 0], mesh.cell_centroids[:, 1]
+    # a closed box's circulation: no net flow through any y plane [analytic: int sin(2 pi y) dy = 0 per column]
+    u = np.stack([np.sin(np.pi * x) ** 2 * np.sin(2 * np.pi * y), -np.sin(2 * np.pi * x) * np.sin(np.pi * y) ** 2,
+                  np.zeros_like(x)], axis=1)
+    steps = []
+    for k in range(3):
+        c = np.zeros(mesh.n_cells)
+        for cx in (0.3 + 0.03 * k, 0.7 - 0.03 * k):
+            c = np.maximum(c, 0.5 * (1 + np.tanh((0.12 - np.hypot(x - cx, y - 0.5)) / 0.02)))
+        steps.append((0.1 * k, f"box_{k}.vtu", mesh, {"alpha": c, "velocity": u}))
+    listing = write_listing(str(tmp_path), steps)
+    threads_seen = []
+    real_label, real_sections = droplets.label_droplets, mixing.cross_sections_noted
+    monkeypatch.setattr(droplets, "label_droplets",
+                        lambda *a, **k: threads_seen.append(("droplets", threading.current_thread().name))
+                        or real_label(*a, **k))
+    monkeypatch.setattr(mixing, "cross_sections_noted",
+                        lambda *a, **k: threads_seen.append(("sections", threading.current_thread().name))
+                        or real_sections(*a, **k))
+    runs = {}
+    for threads in (1, 2):
+        threads_seen.clear()
+        out = tmp_path / f"o{threads}"
+        with warnings.catch_warnings():
+            warnings.simplefilter("ignore")
+            res = measure(listing, "alpha", velocity="velocity", section_axis="y", section_count=5,
+                          threads=threads, out=str(out))
+        runs[threads] = ([pd.read_csv(out / name) for name in ("steps.csv", "profiles.csv", "droplets.csv")],
+                         list(res.warnings))
+        beside = {(what, name == "phasegauge-beside") for what, name in threads_seen}
+        # one thread: the droplets on the caller's; two: sections every step, droplets after the first, beside
+        assert beside == ({("droplets", False)} if threads == 1 else
+                          {("sections", True), ("droplets", False), ("droplets", True)})
+    for one, two in zip(runs[1][0], runs[2][0]):
+        pd.testing.assert_frame_equal(one, two, check_exact=True)
+    assert runs[1][1] == runs[2][1]
+    assert any("no net flow through the section" in text for text in runs[2][1])
+    assert (runs[2][0][2]["step"].value_counts() == 2).all()  # two droplets a step
 
 
 def test_sections_built_beside_stop_the_run_as_on_one_thread(tmp_path, monkeypatch):

@@ -310,6 +310,24 @@ def cross_sections(mesh: Mesh, c_point_or_indicator, *, axis="x", positions=None
     Danckwerts, P. V. (1952). The definition and measurement of some
     characteristics of mixtures. Applied Scientific Research A3, 279-296.
     """
+    table, notes = cross_sections_noted(mesh, c_point_or_indicator, axis=axis, positions=positions, count=count,
+                                        velocity=velocity, c_location=c_location,
+                                        velocity_location=velocity_location, inflow_mean=inflow_mean,
+                                        threads=threads)
+    for note in notes:
+        warnings.warn(note, stacklevel=2)
+    return table
+
+
+def cross_sections_noted(mesh: Mesh, c_point_or_indicator, *, axis="x", positions=None, count: int = 20,
+                         velocity=None, c_location: str | None = None, velocity_location: str | None = None,
+                         inflow_mean: float | None = None, threads: int = 1) -> tuple[pd.DataFrame, list]:
+    """:func:`cross_sections`' table and the warnings it gives, as a list, not given.
+
+    For a thread beside the caller's analyses (:class:`phasegauge.model._threads.Beside`), whose
+    warnings would land among the caller's in no fixed order: the caller gives them where it reads
+    the table. The same arguments, table and errors as :func:`cross_sections`.
+    """
     if inflow_mean is not None and not np.isfinite(inflow_mean):
         raise OptionError(f"inflow_mean must be a finite number, found {inflow_mean!r}",
                           fix="give the mean of c over the inflow, or leave it out")
@@ -374,14 +392,15 @@ def cross_sections(mesh: Mesh, c_point_or_indicator, *, axis="x", positions=None
         rows.append(row)
         moments.append(used)
     table = pd.DataFrame(rows, columns=list(PROFILE_COLUMNS))
+    notes = []
     table[[c for c in PROFILE_COLUMNS if c != "weighting"]] = table[
         [c for c in PROFILE_COLUMNS if c != "weighting"]].astype(np.float64)
     if u is not None and len(table) and (table["weighting"] == "area").any():
         still = table.loc[table["weighting"] == "area", "position"].to_numpy()
         names = ", ".join(f"{AXIS_NAMES[global_axis]} = {x:.6g}" for x in still[:3])
         more = f" and {len(still) - 3} more" if len(still) > 3 else ""
-        warnings.warn(PhasegaugeWarning(f"no net flow through the section at {names}{more}: the flow-weighted "
-                                        "mean and mixing index there use area weights"), stacklevel=2)
+        notes.append(PhasegaugeWarning(f"no net flow through the section at {names}{more}: the flow-weighted "
+                                       "mean and mixing index there use area weights"))
     if inflow_mean is None and len(table):
         # the inflow section: the first plane along the flow (the lowest position, the highest for
         # flow towards -axis)
@@ -396,5 +415,5 @@ def cross_sections(mesh: Mesh, c_point_or_indicator, *, axis="x", positions=None
         table["mixing_index"] = 1.0 - np.sqrt(table["segregation_intensity"])
         table["mixing_index_flow"] = 1.0 - np.sqrt(table["segregation_intensity_flow"])
         table["mixing_index_inflow"] = 1.0 - np.sqrt(table["segregation_intensity_inflow"])
-    return table[list(PROFILE_COLUMNS)]
+    return table[list(PROFILE_COLUMNS)], notes
 

@@ -132,9 +132,10 @@ def _make_faces(mesh, threads: int) -> None:
 class Beside:
     """``function(*args, **kwargs)`` on a thread of its own while the caller goes on.
 
-    For mesh work the caller's next steps do not read (a new mesh's section operator while the
-    interface is measured): nothing it makes is read before :meth:`result`, and it must not warn
-    (its warnings would land among the caller's in no fixed order). The mesh caches both threads
+    For work the caller's next steps do not read (a step's sections, and a new mesh's section
+    operator, while the interface is measured): nothing it makes is read before :meth:`result`, and
+    it must not warn (its warnings would land among the caller's in no fixed order: it returns them
+    for the caller to give). The mesh caches both threads
     may make (``Mesh.memo`` entries, cached properties) are pure functions of the mesh: made twice
     at once they cost time, never a different value. numpy's error settings (``np.errstate``)
     are not carried over to the thread.

@@ -206,26 +206,30 @@ def analyse_step(step, options, *, contour_dir: str | None = None, reported_mesh
     m = {"step": step.index, "time": step.time}
     if flat is not None:  # measured per unit depth: say so in the steps table
         m["depth"] = float(flat.depth)
-    # a new mesh's section operator (mesh work, no warnings) is built beside the phase analyses,
-    # the two sharing the threads
+    # the sections (and a new mesh's section operator) are measured beside the phase analyses, their
+    # warnings given here after them; a new operator takes half the threads, later steps' sections one
     side = threads // 2
     planes = _section_arguments(options, u_cell, u_point, u_location)
-    operator = _operator_beside(mesh, ind, options, planes, side)
-    inner = threads - side if operator is not None else threads
+    sections, inner = _sections_beside(mesh, ind, options, planes, side), threads
+    if sections is not None and not mesh.memo("cross_sections", dict, keep=False):
+        inner = threads - side
     try:
         contour, measured = _phase_analyses(step, mesh, ind, options, result, m, (u_cell, u_point, u_location),
                                             contour_dir, inner)
     finally:
-        if operator is not None:
-            operator.wait()
+        if sections is not None:
+            sections.wait()
     if "mixing" in options.analyses:
         m.update(mixing.mixing_metrics(mesh, ind.cell, box=options.box))
         if options.segregation_scale:
             m["segregation_scale"] = mixing.segregation_scale(mesh, ind.cell)
         if options.section_axis is not None:
-            if operator is not None:
-                operator.result()  # its error where one thread meets it: at the sections
-            profile = mixing.cross_sections(mesh, ind, **planes, threads=threads)
+            if sections is not None:  # its error where one thread meets it: here
+                profile, notes = sections.result()
+                for note in notes:
+                    warnings.warn(note, stacklevel=1)
+            else:
+                profile = mixing.cross_sections(mesh, ind, **planes, threads=threads)
             weighting = "flow" if u_location is not None else "area"
             m["mixing_length"] = mixing.mixing_length(profile, target=options.mixing_target,
                                                       weighting=weighting)
@@ -253,22 +257,22 @@ def _section_arguments(options, u_cell, u_point, u_location) -> dict:
             "velocity": u_cell if u_location == "cell" else u_point, "velocity_location": u_location}
 
 
-def _operator_beside(mesh, ind, options, planes: dict, threads: int):
-    """The section operator of a new mesh built on a thread of its own (its planes cut on up to
-    ``threads`` threads), or None (no thread to spare, no sections, or the mesh's operator kept
-    from an earlier step)."""
+def _sections_beside(mesh, ind, options, planes: dict, threads: int):
+    """The step's sections measured on a thread of their own (:func:`mixing.cross_sections_noted`,
+    the planes on up to ``threads`` threads, a new mesh's operator built there first), or None (no
+    thread to spare, or no sections). It reads the indicator and the velocity, which no analysis
+    writes, and the mesh's caches, pure functions of the mesh; its warnings come back as a list."""
     from ..analysis import mixing
 
-    if threads < 1 or "mixing" not in options.analyses or options.section_axis is None or mesh.memo(
-            "cross_sections", dict, keep=False):
+    if threads < 1 or "mixing" not in options.analyses or options.section_axis is None:
         return None
-    return Beside(mixing.prepare_cross_sections, mesh, ind, **planes, threads=threads)
+    return Beside(mixing.cross_sections_noted, mesh, ind, **planes, threads=threads)
 
 
 def _phase_analyses(step, mesh, ind, options, result, m: dict, velocity: tuple, contour_dir, threads: int):
     """Conservation, interface and droplets of one step, into ``m`` and ``result``; returns the
     contour and the distances the widths measured (or None)."""
-    from ..analysis import conservation, droplets as droplets_mod, interface
+    from ..analysis import conservation, interface
 
     u_cell, u_point, u_location = velocity
     if "conservation" in options.analyses:
@@ -286,26 +290,29 @@ def _phase_analyses(step, mesh, ind, options, result, m: dict, velocity: tuple, 
         contour, extremes = interface.find_interface(mesh, ind.point, level=options.level, return_extremes=True)
         # the measured bulk values of the two phases: the widths and the droplets are taken between them
         plateaus = interface.bulk_plateaus(ind.point, options.level)
-    if "interface" in options.analyses:
-        # a mixture run keeps the distances the widths measured: its bulk cells need few more
-        widths = interface.interface_metrics(mesh, ind, level=options.level, contour=contour, extremes=extremes,
-                                             return_distances=options.model is not None, plateaus=plateaus,
-                                             threads=threads)
-        if options.model is not None:
-            widths, measured = widths
-        m.update(widths)
-        if contour_dir is not None:
-            from ..io import write_contour
+    labels = None  # with threads to spare, the droplets are labelled beside the widths (nothing there warns)
+    if "droplets" in options.analyses and "interface" in options.analyses and threads >= 2:
+        labels = Beside(_label_droplets, mesh, ind, options, u_cell, contour, plateaus)
+    try:
+        if "interface" in options.analyses:
+            # a mixture run keeps the distances the widths measured: its bulk cells need few more
+            widths = interface.interface_metrics(mesh, ind, level=options.level, contour=contour,
+                                                 extremes=extremes, return_distances=options.model is not None,
+                                                 plateaus=plateaus, threads=threads)
+            if options.model is not None:
+                widths, measured = widths
+            m.update(widths)
+            if contour_dir is not None:
+                from ..io import write_contour
 
-            write_contour(contour, os.path.join(contour_dir, f"interface_{step.index:06d}.vtu"), time=step.time,
-                          step=step.index)
+                write_contour(contour, os.path.join(contour_dir, f"interface_{step.index:06d}.vtu"),
+                              time=step.time, step=step.index)
+    finally:
+        if labels is not None:
+            labels.wait()
     extremes = None  # c's corner extremes of every cell (16 bytes a cell): read by the contour and widths only
     if "droplets" in options.analyses:
-        low, high, tail = plateaus  # droplets measured between the bulk values the widths used
-        found = droplets_mod.label_droplets(
-            mesh, ind.cell, level=options.level, connectivity=options.adjacency, periodic=tuple(options.periodic),
-            velocity=u_cell, interface_cells=contour.cells, interface_sizes=contour.element_sizes,
-            bulk=(low, high), band_floor=max(1e-3, tail) if (low, high) != (0.0, 1.0) else 1e-3)
+        found = _label_droplets(mesh, ind, options, u_cell, contour, plateaus) if labels is None else labels.result()
         table = found.table
         if ind.location == "point":  # points written on both ends of a period (cell data cannot tell)
             _warn_periodic_look(mesh, ind.point, options, step.info.where)
@@ -319,6 +326,18 @@ def _phase_analyses(step, mesh, ind, options, result, m: dict, velocity: tuple, 
         result.droplets = table
         del found, labelled  # labels and c dV of every cell (16 bytes a cell): not held through the sections
     return contour, measured
+
+
+def _label_droplets(mesh, ind, options, u_cell, contour, plateaus):
+    """The step's droplets (:func:`phasegauge.analysis.droplets.label_droplets`), measured between
+    the bulk values the widths used."""
+    from ..analysis import droplets
+
+    low, high, tail = plateaus
+    return droplets.label_droplets(
+        mesh, ind.cell, level=options.level, connectivity=options.adjacency, periodic=tuple(options.periodic),
+        velocity=u_cell, interface_cells=contour.cells, interface_sizes=contour.element_sizes,
+        bulk=(low, high), band_floor=max(1e-3, tail) if (low, high) != (0.0, 1.0) else 1e-3)
 
 
 def _equilibrium(step, mesh, ind, options, interface_size) -> dict:
