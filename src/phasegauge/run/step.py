@@ -287,9 +287,15 @@ def _phase_analyses(step, mesh, ind, options, result, m: dict, velocity: tuple, 
             m["open_boundary"] = bool(flux["open_boundary"])
     contour = extremes = measured = plateaus = None
     if "interface" in options.analyses or "droplets" in options.analyses:
-        contour, extremes = interface.find_interface(mesh, ind.point, level=options.level, return_extremes=True)
-        # the measured bulk values of the two phases: the widths and the droplets are taken between them
-        plateaus = interface.bulk_plateaus(ind.point, options.level)
+        # the measured bulk values of the two phases (the widths and the droplets are taken between
+        # them), with threads to spare found beside the contour (nothing there warns)
+        bulk = Beside(interface.bulk_plateaus, ind.point, options.level) if threads >= 2 else None
+        try:
+            contour, extremes = interface.find_interface(mesh, ind.point, level=options.level, return_extremes=True)
+        finally:
+            if bulk is not None:
+                bulk.wait()
+        plateaus = interface.bulk_plateaus(ind.point, options.level) if bulk is None else bulk.result()
     labels = None  # with threads to spare, the droplets are labelled beside the widths (nothing there warns)
     if "droplets" in options.analyses and "interface" in options.analyses and threads >= 2:
         labels = Beside(_label_droplets, mesh, ind, options, u_cell, contour, plateaus)
