@@ -346,8 +346,9 @@ def test_threads_give_the_same_tables_and_are_recorded(tmp_path, monkeypatch):
 
 def test_sections_and_droplets_beside_give_one_threads_tables_and_warnings_in_order(tmp_path, monkeypatch):
     """Sections and droplets measured on threads beside the widths (every step, the first building the
-    section operator): the steps, profiles and droplets of one thread bit for bit, and the same warnings
-    in the same order; the sections' no-net-flow warning given by the run, not lost on the thread."""
+    section operator on half the threads, later ones on one): the steps, profiles and droplets of one
+    thread bit for bit on 2 and 4, the same warnings in the same order, none of ours given on a thread
+    beside; the sections' no-net-flow warning given by the run, not lost on the thread."""
     from phasegauge.analysis import droplets, mixing
     from phasegauge.run import step
 
@@ -364,17 +365,25 @@ def test_sections_and_droplets_beside_give_one_threads_tables_and_warnings_in_or
             c = np.maximum(c, 0.5 * (1 + np.tanh((0.12 - np.hypot(x - cx, y - 0.5)) / 0.02)))
         steps.append((0.1 * k, f"box_{k}.vtu", mesh, {"alpha": c, "velocity": u}))
     listing = write_listing(str(tmp_path), steps)
-    threads_seen = []
-    real_label, real_sections = droplets.label_droplets, mixing.cross_sections_noted
+    seen = []  # (what, on the beside thread, its threads): every call, in order
+    real_label, real_sections, real_warn = droplets.label_droplets, mixing.cross_sections_noted, warnings.warn
+
+    def beside():
+        return threading.current_thread().name == "phasegauge-beside"
+
+    def warn(message, *args, **kwargs):  # a warning of ours given on a thread beside: its order would vary
+        if isinstance(message, Warning) and beside():
+            seen.append(("warned beside", True, None))
+        return real_warn(message, *args, **kwargs)
+
     monkeypatch.setattr(droplets, "label_droplets",
-                        lambda *a, **k: threads_seen.append(("droplets", threading.current_thread().name))
-                        or real_label(*a, **k))
+                        lambda *a, **k: seen.append(("droplets", beside(), None)) or real_label(*a, **k))
     monkeypatch.setattr(mixing, "cross_sections_noted",
-                        lambda *a, **k: threads_seen.append(("sections", threading.current_thread().name))
-                        or real_sections(*a, **k))
+                        lambda *a, **k: seen.append(("sections", beside(), k["threads"])) or real_sections(*a, **k))
+    monkeypatch.setattr(warnings, "warn", warn)
     runs = {}
-    for threads in (1, 2):
-        threads_seen.clear()
+    for threads in (1, 2, 4):
+        seen.clear()
         out = tmp_path / f"o{threads}"
         with warnings.catch_warnings():
             warnings.simplefilter("ignore")
@@ -382,13 +391,18 @@ def test_sections_and_droplets_beside_give_one_threads_tables_and_warnings_in_or
                           threads=threads, out=str(out))
         runs[threads] = ([pd.read_csv(out / name) for name in ("steps.csv", "profiles.csv", "droplets.csv")],
                          list(res.warnings))
-        beside = {(what, name == "phasegauge-beside") for what, name in threads_seen}
-        # one thread: the droplets on the caller's; two: sections every step, droplets after the first, beside
-        assert beside == ({("droplets", False)} if threads == 1 else
-                          {("sections", True), ("droplets", False), ("droplets", True)})
-    for one, two in zip(runs[1][0], runs[2][0]):
+        if threads == 1:  # everything on the caller's thread (the sections through cross_sections)
+            assert seen == [("droplets", False, None)] * 3
+        else:  # the sections beside every step (the first building the operator on half the threads);
+            # the droplets beside the widths where the analyses keep two threads or more
+            assert [x for x in seen if x[0] == "sections"] == [("sections", True, threads // 2)] + [
+                ("sections", True, 1)] * 2
+            assert [x[1] for x in seen if x[0] == "droplets"] == [threads == 4, True, True]
+        assert ("warned beside", True, None) not in seen
+    for one, two, four in zip(runs[1][0], runs[2][0], runs[4][0]):
         pd.testing.assert_frame_equal(one, two, check_exact=True)
-    assert runs[1][1] == runs[2][1]
+        pd.testing.assert_frame_equal(one, four, check_exact=True)
+    assert runs[1][1] == runs[2][1] == runs[4][1]
     assert any("no net flow through the section" in text for text in runs[2][1])
     assert (runs[2][0][2]["step"].value_counts() == 2).all()  # two droplets a step
 

@@ -177,9 +177,12 @@ def analyse_step(step, options, *, contour_dir: str | None = None, reported_mesh
         Signatures of meshes whose quality was already warned about (updated).
     threads : int
         Threads for the work that splits into independent parts (a new mesh's geometry and faces,
-        the planes of a section operator, the widths' distance searches; a new mesh's section
-        operator is built beside the phase analyses) on a mesh of at least
-        :data:`THREADED_CELLS` cells; the result is the same bit for bit on any number.
+        the planes of a section operator, the widths' distance searches) on a mesh of at least
+        :data:`THREADED_CELLS` cells; the result is the same bit for bit on any number. With two
+        or more, the sections are measured beside the phase analyses (a new mesh's operator built
+        there first, on half the threads), and within those the bulk values beside the contour and
+        the droplets beside the widths: up to two threads more than ``threads`` may then run at
+        once (they share the interpreter lock, so they overlap only in part).
     """
     from ..analysis import mixing
 
@@ -207,12 +210,13 @@ def analyse_step(step, options, *, contour_dir: str | None = None, reported_mesh
     if flat is not None:  # measured per unit depth: say so in the steps table
         m["depth"] = float(flat.depth)
     # the sections (and a new mesh's section operator) are measured beside the phase analyses, their
-    # warnings given here after them; a new operator takes half the threads, later steps' sections one
+    # warnings given here after them; a new operator takes half the threads (the analyses the rest),
+    # later steps' sections one (the analyses all); decided before the thread starts
     side = threads // 2
     planes = _section_arguments(options, u_cell, u_point, u_location)
-    sections, inner = _sections_beside(mesh, ind, options, planes, side), threads
-    if sections is not None and not mesh.memo("cross_sections", dict, keep=False):
-        inner = threads - side
+    new = not mesh.memo("cross_sections", dict, keep=False)
+    sections = _sections_beside(mesh, ind, options, planes, side if new else min(side, 1))
+    inner = threads - side if sections is not None and new else threads
     try:
         contour, measured = _phase_analyses(step, mesh, ind, options, result, m, (u_cell, u_point, u_location),
                                             contour_dir, inner)
