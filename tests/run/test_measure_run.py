@@ -355,7 +355,7 @@ def test_sections_and_droplets_beside_give_one_threads_tables_and_warnings_in_or
     monkeypatch.setattr(step, "THREADED_CELLS", 0)
     mesh = grid_mesh((24, 24))
     x, y = mesh.cell_centroids[:, 0], mesh.cell_centroids[:, 1]
-    # a closed box's circulation: no net flow through any y plane [analytic: int sin(2 pi y) dy = 0 per column]
+    # a closed box's circulation: no net flow through any y plane [analytic: int_0^1 sin(2 pi x) dx = 0]
     u = np.stack([np.sin(np.pi * x) ** 2 * np.sin(2 * np.pi * y), -np.sin(2 * np.pi * x) * np.sin(np.pi * y) ** 2,
                   np.zeros_like(x)], axis=1)
     steps = []

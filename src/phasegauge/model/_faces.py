@@ -63,10 +63,8 @@ _ROW_CHUNK = 1 << 13
 
 
 def row_owners(mesh: Mesh, rows: np.ndarray, row_starts: np.ndarray) -> np.ndarray:
-    """The cell that owns each face row of :func:`face_rows`."""
-    if len(mesh.blocks) == 1:
-        return rows.astype(np.int64) % len(mesh.blocks[0])  # int64 whatever the promotion rules
-    return _owners_and_places(mesh, rows, row_starts)[0]
+    """The cell that owns each face row of :func:`face_rows` (int64)."""
+    return _owners_and_places(mesh, rows, row_starts)[0].astype(np.int64, copy=False)
 
 
 def _owners_and_places(mesh: Mesh, rows: np.ndarray, row_starts: np.ndarray) -> tuple:
@@ -172,9 +170,10 @@ def _cell_pairs(mesh: Mesh, first: np.ndarray, second: np.ndarray, row_starts: n
     high = np.where(lower, cell[1], cell[0])
     at = np.where(lower, place[0], place[1])
     del cell, place, lower
-    if np.any(low == high):  # a face both rows of which one cell owns: no pair
-        apart = low != high
+    apart = low != high
+    if not apart.all():  # a face both rows of which one cell owns: no pair
         low, high, at = low[apart], high[apart], at[apart]
+    del apart
     # int32 where cell ids times a small count (faces per cell) still fit: users build
     # table offsets as cell * width in the pairs' own dtype
     table = np.full((mesh.n_cells, width), mesh.n_cells, dtype=dtype)  # n_cells: no pair

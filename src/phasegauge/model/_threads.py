@@ -139,7 +139,8 @@ class Beside:
     for the caller to give). The mesh caches both threads
     may make (``Mesh.memo`` entries, cached properties) are pure functions of the mesh: made twice
     at once they cost time, never a different value. numpy's error settings (``np.errstate``)
-    are not carried over to the thread.
+    are not carried over to the thread. As a context manager (``with Beside(...) as side:``) the
+    thread is waited for when the block ends, however it ends.
     """
 
     def __init__(self, function, *args, **kwargs):
@@ -154,6 +155,12 @@ class Beside:
 
         self._thread = threading.Thread(target=run, name="phasegauge-beside", daemon=True)
         self._thread.start()
+
+    def __enter__(self):
+        return self
+
+    def __exit__(self, *exc) -> None:  # the thread is waited for however the block ends
+        self.wait()
 
     def wait(self) -> None:
         """Wait for the thread to end (its error, if any, kept for :meth:`result`)."""

@@ -13,6 +13,7 @@ from __future__ import annotations
 import os
 import time
 import warnings
+from contextlib import nullcontext
 from dataclasses import dataclass, field
 
 import numpy as np
@@ -217,12 +218,9 @@ def analyse_step(step, options, *, contour_dir: str | None = None, reported_mesh
     new = not mesh.memo("cross_sections", dict, keep=False)
     sections = _sections_beside(mesh, ind, options, planes, side if new else min(side, 1))
     inner = threads - side if sections is not None and new else threads
-    try:
+    with sections or nullcontext():  # waited for however the analyses end
         contour, measured = _phase_analyses(step, mesh, ind, options, result, m, (u_cell, u_point, u_location),
                                             contour_dir, inner)
-    finally:
-        if sections is not None:
-            sections.wait()
     if "mixing" in options.analyses:
         m.update(mixing.mixing_metrics(mesh, ind.cell, box=options.box))
         if options.segregation_scale:
@@ -294,16 +292,13 @@ def _phase_analyses(step, mesh, ind, options, result, m: dict, velocity: tuple, 
         # the measured bulk values of the two phases (the widths and the droplets are taken between
         # them), with threads to spare found beside the contour (nothing there warns)
         bulk = Beside(interface.bulk_plateaus, ind.point, options.level) if threads >= 2 else None
-        try:
+        with bulk or nullcontext():
             contour, extremes = interface.find_interface(mesh, ind.point, level=options.level, return_extremes=True)
-        finally:
-            if bulk is not None:
-                bulk.wait()
         plateaus = interface.bulk_plateaus(ind.point, options.level) if bulk is None else bulk.result()
     labels = None  # with threads to spare, the droplets are labelled beside the widths (nothing there warns)
     if "droplets" in options.analyses and "interface" in options.analyses and threads >= 2:
         labels = Beside(_label_droplets, mesh, ind, options, u_cell, contour, plateaus)
-    try:
+    with labels or nullcontext():
         if "interface" in options.analyses:
             # a mixture run keeps the distances the widths measured: its bulk cells need few more
             widths = interface.interface_metrics(mesh, ind, level=options.level, contour=contour,
@@ -317,9 +312,6 @@ def _phase_analyses(step, mesh, ind, options, result, m: dict, velocity: tuple, 
 
                 write_contour(contour, os.path.join(contour_dir, f"interface_{step.index:06d}.vtu"),
                               time=step.time, step=step.index)
-    finally:
-        if labels is not None:
-            labels.wait()
     extremes = None  # c's corner extremes of every cell (16 bytes a cell): read by the contour and widths only
     if "droplets" in options.analyses:
         found = _label_droplets(mesh, ind, options, u_cell, contour, plateaus) if labels is None else labels.result()
