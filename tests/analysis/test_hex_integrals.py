@@ -85,7 +85,7 @@ def test_cell_path_matches_the_full_split(monkeypatch, name, cells_across):
         assert 0 < rows.size < mesh.n_cells
     assert len(np.unique(codes)) > 1  # faces on the boundary or cut alike: two tetrahedra each
     c = _sphere(mesh, cells_across)
-    work = width_module._Work(mesh, c, 0.5, None, None)
+    work = width_module.PreparedWidths(mesh, c, 0.5)
     assert isinstance(work.integrals, _HexBand)
     pieces = interface_metrics(mesh, c)
     # the distances against the contour's own triangles (the path searches one plane per crossed
@@ -102,7 +102,7 @@ def test_cell_path_matches_the_full_split(monkeypatch, name, cells_across):
     fast = interface_metrics(mesh, c)
     fast_table = interface_profile_table(mesh, c)
     _split_path(monkeypatch)
-    assert isinstance(width_module._Work(mesh, c, 0.5, None, None).integrals, _SplitBand)
+    assert isinstance(width_module.PreparedWidths(mesh, c, 0.5).integrals, _SplitBand)
     slow = interface_metrics(mesh, c)
     assert list(fast) == list(slow) == list(METRIC_KEYS)
     for key in METRIC_KEYS:

@@ -345,11 +345,12 @@ def test_threads_give_the_same_tables_and_are_recorded(tmp_path, monkeypatch):
 
 
 def test_sections_and_droplets_beside_give_one_threads_tables_and_warnings_in_order(tmp_path, monkeypatch):
-    """Sections and droplets measured on threads beside the widths (every step, the first building the
-    section operator on half the threads, later ones on one): the steps, profiles and droplets of one
-    thread bit for bit on 2 and 4, the same warnings in the same order, none of ours given on a thread
-    beside; the sections' no-net-flow warning given by the run, not lost on the thread."""
-    from phasegauge.analysis import droplets, mixing
+    """Sections, contour and droplets measured on threads beside the widths (the sections every step,
+    the first building the section operator on half the threads, later ones on one): the steps,
+    profiles and droplets of one thread bit for bit on 2 and 4, the same warnings in the same order,
+    none of ours given on a thread beside; the sections' no-net-flow warning given by the run, not
+    lost on the thread."""
+    from phasegauge.analysis import _interface_width, droplets, mixing
     from phasegauge.run import step
 
     monkeypatch.setattr(step, "THREADED_CELLS", 0)
@@ -367,6 +368,7 @@ def test_sections_and_droplets_beside_give_one_threads_tables_and_warnings_in_or
     listing = write_listing(str(tmp_path), steps)
     seen = []  # (what, on the beside thread, its threads): every call, in order
     real_label, real_sections, real_warn = droplets.label_droplets, mixing.cross_sections_noted, warnings.warn
+    real_contour = _interface_width.find_interface
 
     def beside():
         return threading.current_thread().name == "phasegauge-beside"
@@ -380,6 +382,8 @@ def test_sections_and_droplets_beside_give_one_threads_tables_and_warnings_in_or
                         lambda *a, **k: seen.append(("droplets", beside(), None)) or real_label(*a, **k))
     monkeypatch.setattr(mixing, "cross_sections_noted",
                         lambda *a, **k: seen.append(("sections", beside(), k["threads"])) or real_sections(*a, **k))
+    monkeypatch.setattr(_interface_width, "find_interface",
+                        lambda *a, **k: seen.append(("contour", beside(), None)) or real_contour(*a, **k))
     monkeypatch.setattr(warnings, "warn", warn)
     runs = {}
     for threads in (1, 2, 4):
@@ -392,12 +396,14 @@ def test_sections_and_droplets_beside_give_one_threads_tables_and_warnings_in_or
         runs[threads] = ([pd.read_csv(out / name) for name in ("steps.csv", "profiles.csv", "droplets.csv")],
                          list(res.warnings))
         if threads == 1:  # everything on the caller's thread (the sections through cross_sections)
-            assert seen == [("droplets", False, None)] * 3
+            assert seen == [("contour", False, None), ("droplets", False, None)] * 3
         else:  # the sections beside every step (the first building the operator on half the threads);
-            # the droplets beside the widths where the analyses keep two threads or more
+            # the contour beside the band integrals and the droplets beside the widths where the
+            # analyses keep two threads or more
             assert [x for x in seen if x[0] == "sections"] == [("sections", True, threads // 2)] + [
                 ("sections", True, 1)] * 2
             assert [x[1] for x in seen if x[0] == "droplets"] == [threads == 4, True, True]
+            assert [x[1] for x in seen if x[0] == "contour"] == [threads == 4, True, True]
         assert ("warned beside", True, None) not in seen
     for one, two, four in zip(runs[1][0], runs[2][0], runs[4][0]):
         pd.testing.assert_frame_equal(one, two, check_exact=True)

@@ -250,10 +250,25 @@ def _orient_like_cells(contour: Contour, mesh: Mesh, c: np.ndarray) -> Contour:
     return Contour(contour.points, elements, contour.cells, contour.dimension, contour.plane_axes)
 
 
+def _check_extremes(mesh: Mesh, extremes) -> CornerExtremes | None:
+    """``extremes`` as CornerExtremes of the mesh's cells, or None."""
+    if extremes is None:
+        return None
+    try:
+        low, high = (np.asarray(a, dtype=np.float64) for a in extremes)
+    except (TypeError, ValueError):
+        low = high = None
+    if low is None or low.shape != (mesh.n_cells,) or high.shape != (mesh.n_cells,):
+        raise OptionError(f"extremes must be the per-cell corner minima and maxima of the {mesh.n_cells} "
+                          f"cells, found {type(extremes).__name__}",
+                          fix="pass what find_interface(..., return_extremes=True) gave for these values, or None")
+    return CornerExtremes(low, high)
+
+
 # --------------------------------------------------------------------------- public entry
 
 def find_interface(mesh: Mesh, c_point, *, level: float = 0.5, method: str = "auto",
-                   return_extremes: bool = False):
+                   return_extremes: bool = False, extremes: CornerExtremes | None = None):
     """The contour ``c = level`` of the point values of the indicator.
 
     Parameters
@@ -275,6 +290,10 @@ def find_interface(mesh: Mesh, c_point, *, level: float = 0.5, method: str = "au
         Also return the per-cell corner extremes of ``c_point`` that the
         cells path computed (None from the grid path), for
         :func:`interface_metrics` of the same values (it then skips that pass).
+    extremes : CornerExtremes, optional
+        The per-cell corner extremes of ``c_point``, already computed
+        (:func:`phasegauge.model.corners.corner_extremes`): the cells path
+        then skips that pass; None: computed there.
 
     Returns
     -------
@@ -286,8 +305,9 @@ def find_interface(mesh: Mesh, c_point, *, level: float = 0.5, method: str = "au
     Raises
     ------
     OptionError
-        Wrong shape of ``c_point``, a non-finite level, an unknown method, or
-        ``grid`` on a mesh that is not a regular grid.
+        Wrong shape of ``c_point``, a non-finite level, an unknown method,
+        ``grid`` on a mesh that is not a regular grid, or ``extremes`` that do
+        not fit the mesh.
 
     Notes
     -----
@@ -330,6 +350,8 @@ def find_interface(mesh: Mesh, c_point, *, level: float = 0.5, method: str = "au
     if use_grid:
         contour, extremes = _find_on_grid(mesh, c, level), None
     else:
-        extremes = corner_extremes(mesh, c)
+        extremes = _check_extremes(mesh, extremes)
+        if extremes is None:
+            extremes = corner_extremes(mesh, c)
         contour = _find_on_simplices(mesh, c, level, extremes)
     return (contour, extremes) if return_extremes else contour

@@ -12,6 +12,8 @@ logistic eps itself is returned as ``interface_eps``.
 
 from __future__ import annotations
 
+from contextlib import nullcontext
+
 import numpy as np
 import pandas as pd
 
@@ -20,14 +22,15 @@ from ..model._statistics import weighted_quantile
 from ..model.contour import Contour
 from ..model.corners import CornerExtremes, cell_gradient, corner_extremes
 from ..model.mesh import Mesh
-from ._contour import _check_level, find_interface
+from ..model._threads import Beside
+from ._contour import _check_extremes, _check_level, find_interface
 from ._profile_fits import PROFILE_COLUMNS, WIDTH_PER_EPS, _profile_table
 from ._hex_integrals import _HexBand, coned_hexahedra
 from ._signed_distance import MeasuredDistances, _ContourGeometry
 from ._width_integrals import _TAIL, _GridBand, _SplitBand, _grid_tetrahedra
 
-__all__ = ["interface_metrics", "interface_profile_table", "METRIC_KEYS", "PROFILE_COLUMNS",
-           "WIDTH_PER_EPS"]
+__all__ = ["interface_metrics", "interface_profile_table", "prepare_widths", "PreparedWidths", "METRIC_KEYS",
+           "PROFILE_COLUMNS", "WIDTH_PER_EPS"]
 
 #: 10-90 % thickness per unit eps: 2 ln 9
 _WIDTH_10_90_PER_EPS = 2.0 * np.log(9.0)
@@ -77,44 +80,63 @@ def _check_samples(max_samples) -> int:
 
 # --------------------------------------------------------------------------- main entry
 
-class _Work:
-    """Pieces shared by the metrics and the profile table."""
+class PreparedWidths:
+    """What the widths read besides the distances: the contour, the values between the bulk values
+    and the band integrals (:func:`prepare_widths`).
 
-    def __init__(self, mesh: Mesh, indicator, level: float, contour, extremes, plateaus=None):
+    Attributes
+    ----------
+    contour : Contour
+        The contour at ``level``.
+    plateaus : tuple of 3 floats
+        ``(low, high, tail)`` as :func:`bulk_plateaus` gives them.
+    level : float
+    """
+
+    def __init__(self, mesh: Mesh, indicator, level: float, contour=None, extremes=None, plateaus=None,
+                 threads: int = 1):
         self.level = _check_level(level)
         self.mesh = mesh
         _, self.c_point = _indicator_values(mesh, indicator, need_cells=False)
         extremes = _check_extremes(mesh, extremes)
-        if contour is None:
-            contour, found = find_interface(mesh, self.c_point, level=self.level, return_extremes=True)
-            extremes = found if extremes is None else extremes
-        elif not isinstance(contour, Contour):
+        if contour is not None and not isinstance(contour, Contour):
             raise OptionError(f"contour must be a Contour, found {type(contour).__name__}",
                               fix="pass the result of find_interface, or None")
-        self.contour = contour
-        low, high, tail = bulk_plateaus(self.c_point, self.level) if plateaus is None else _check_plateaus(plateaus)
-        self.plateaus = (low, high)
-        self.cell_mixed = _cell_mixed(mesh, indicator, low, high, tail)
-        if (low, high) == (0.0, 1.0):
-            self.clipped = np.clip(self.c_point, 0.0, 1.0)
-            self.width_level = self.level
-        else:  # the estimators see the profile between the measured bulk values
-            self.clipped = np.clip((self.c_point - low) / (high - low), 0.0, 1.0)
-            self.width_level = (self.level - low) / (high - low)
         layout = _grid_tetrahedra(mesh)
+        if extremes is None and layout is None:  # read by the integrals (and the contour on the cells)
+            extremes = corner_extremes(mesh, self.c_point)
+        side = None
+        if contour is None:  # found beside the integrals with threads to spare (nothing there warns)
+            if threads >= 2:
+                side = Beside(find_interface, mesh, self.c_point, level=self.level, extremes=extremes)
+            else:
+                contour = find_interface(mesh, self.c_point, level=self.level, extremes=extremes)
+        with side or nullcontext():  # waited for however the integrals end
+            low, high, tail = bulk_plateaus(self.c_point, self.level) if plateaus is None else _check_plateaus(plateaus)
+            self.plateaus = (low, high, tail)
+            self.cell_mixed = _cell_mixed(mesh, indicator, low, high, tail)
+            if (low, high) == (0.0, 1.0):
+                self.clipped = np.clip(self.c_point, 0.0, 1.0)
+                self.width_level = self.level
+            else:  # the estimators see the profile between the measured bulk values
+                self.clipped = np.clip((self.c_point - low) / (high - low), 0.0, 1.0)
+                self.width_level = (self.level - low) / (high - low)
+            self.integrals = self._integrals(layout, extremes, tail)
+        self.contour = contour if side is None else side.result()
+
+    def _integrals(self, layout, extremes, tail: float):
+        mesh, (low, high, _) = self.mesh, self.plateaus
         if layout is not None:
-            self.integrals = _GridBand(mesh, self.clipped, layout, cutoff=tail)
-            return
+            return _GridBand(mesh, self.clipped, layout, cutoff=tail)
         # the extremes of the clipped values are the clipped extremes: those of c will do
-        lo, hi = extremes if extremes is not None else corner_extremes(mesh, self.c_point)
+        lo, hi = extremes
         if (low, high) != (0.0, 1.0):
             lo, hi = (lo - low) / (high - low), (hi - low) / (high - low)
         active = (hi > tail) & (lo < 1.0 - tail)
         coned = coned_hexahedra(mesh)
         if coned is not None:  # hexahedra coned on all faces: integrated cell by cell
-            self.integrals = _HexBand(mesh, self.clipped, active, coned, lo, hi)
-            return
-        self.integrals = _SplitBand(mesh, self.clipped, active)
+            return _HexBand(mesh, self.clipped, active, coned, lo, hi)
+        return _SplitBand(mesh, self.clipped, active)
 
 
 def _cell_mixed(mesh: Mesh, indicator, low: float, high: float, tail: float):
@@ -221,28 +243,14 @@ def _check_plateaus(plateaus) -> tuple[float, float, float]:
     return low, high, tail
 
 
-def _check_extremes(mesh: Mesh, extremes) -> CornerExtremes | None:
-    """``extremes`` as CornerExtremes of the mesh's cells, or None."""
-    if extremes is None:
-        return None
-    try:
-        low, high = (np.asarray(a, dtype=np.float64) for a in extremes)
-    except (TypeError, ValueError):
-        low = high = None
-    if low is None or low.shape != (mesh.n_cells,) or high.shape != (mesh.n_cells,):
-        raise OptionError(f"extremes must be the per-cell corner minima and maxima of the {mesh.n_cells} "
-                          f"cells, found {type(extremes).__name__}",
-                          fix="pass what find_interface(..., return_extremes=True) gave for these values, or None")
-    return CornerExtremes(low, high)
-
-
 def _nan_metrics() -> dict:
     return {key: float("nan") for key in METRIC_KEYS}
 
 
 def interface_metrics(mesh: Mesh, indicator, *, level: float = 0.5, contour: Contour | None = None,
                       extremes: CornerExtremes | None = None, max_samples: int = 2000,
-                      return_distances: bool = False, plateaus=None, threads: int = 1):
+                      return_distances: bool = False, plateaus=None, threads: int = 1,
+                      prepared: PreparedWidths | None = None):
     """Size and width of the interface, by four independent estimators.
 
     Parameters
@@ -273,7 +281,14 @@ def interface_metrics(mesh: Mesh, indicator, *, level: float = 0.5, contour: Con
         and ``level`` (a caller that also labels droplets computes them once); None:
         computed here.
     threads : int
-        Threads of the signed-distance searches (the same numbers on any number).
+        Threads of the signed-distance searches (the same numbers on any number);
+        with two or more and no ``contour``, the contour is found beside the
+        band integrals.
+    prepared : PreparedWidths, optional
+        The contour, bulk values and band integrals :func:`prepare_widths`
+        formed for the same indicator and ``level`` (a caller that reads the
+        contour before the widths forms them once); then ``contour``,
+        ``extremes`` and ``plateaus`` are not given.
 
     Returns
     -------
@@ -323,8 +338,9 @@ def interface_metrics(mesh: Mesh, indicator, *, level: float = 0.5, contour: Con
     ------
     OptionError
         An indicator of the wrong shape, a non-finite level, a bad
-        ``max_samples``, a ``contour`` that is not a Contour or ``extremes``
-        that do not fit the mesh.
+        ``max_samples``, a ``contour`` that is not a Contour, ``extremes``
+        that do not fit the mesh, or ``prepared`` for another mesh or level,
+        or given with any of ``contour``, ``extremes`` and ``plateaus``.
 
     Notes
     -----
@@ -366,9 +382,47 @@ def interface_metrics(mesh: Mesh, indicator, *, level: float = 0.5, contour: Con
        system. I. Interfacial free energy", J. Chem. Phys. 28:258 (tanh profile).
     """
     max_samples = _check_samples(max_samples)
-    work = _Work(mesh, indicator, level, contour, extremes, plateaus)
-    metrics, _, distances = _metrics(work, max_samples, threads, distances=return_distances)
+    if prepared is None:
+        prepared = PreparedWidths(mesh, indicator, level, contour, extremes, plateaus, threads)
+    else:
+        _check_prepared(prepared, mesh, level, contour, extremes, plateaus)
+    metrics, _, distances = _metrics(prepared, max_samples, threads, distances=return_distances)
     return (metrics, distances) if return_distances else metrics
+
+
+def prepare_widths(mesh: Mesh, indicator, *, level: float = 0.5, threads: int = 1) -> PreparedWidths:
+    """The contour, the bulk values and the band integrals of :func:`interface_metrics`, formed
+    before the widths (for a caller that reads the contour first: ``interface_metrics(...,
+    prepared=...)`` then measures the rest).
+
+    Parameters
+    ----------
+    mesh, indicator, level
+        As for :func:`interface_metrics`.
+    threads : int
+        With two or more, the contour is found on a thread beside the band integrals (the same
+        numbers as on one).
+
+    Returns
+    -------
+    PreparedWidths
+        ``contour`` (as :func:`find_interface` gives it) and ``plateaus`` (as
+        :func:`bulk_plateaus` gives them) to read; the rest is for
+        :func:`interface_metrics`.
+    """
+    return PreparedWidths(mesh, indicator, level, threads=threads)
+
+
+def _check_prepared(prepared, mesh: Mesh, level: float, contour, extremes, plateaus) -> None:
+    if not isinstance(prepared, PreparedWidths):
+        raise OptionError(f"prepared must be what prepare_widths gives, found {type(prepared).__name__}",
+                          fix="pass prepare_widths(mesh, indicator, level=...), or None")
+    if prepared.mesh is not mesh or prepared.level != _check_level(level):
+        raise OptionError("prepared was formed for another mesh or level",
+                          fix="pass prepare_widths(...) of the same mesh, indicator and level")
+    if contour is not None or extremes is not None or plateaus is not None:
+        raise OptionError("prepared already holds the contour, the extremes and the bulk values",
+                          fix="give prepared alone, or contour, extremes and plateaus without it")
 
 
 def interface_profile_table(mesh: Mesh, indicator, *, level: float = 0.5, contour: Contour | None = None,
@@ -407,11 +461,11 @@ def interface_profile_table(mesh: Mesh, indicator, *, level: float = 0.5, contou
     .. [1] Olsson, E. and Kreiss, G. (2005), J. Comput. Phys. 210:225-246.
     """
     max_samples = _check_samples(max_samples)
-    work = _Work(mesh, indicator, level, contour, extremes)
+    work = PreparedWidths(mesh, indicator, level, contour, extremes)
     return _metrics(work, max_samples)[1]
 
 
-def _metrics(work: _Work, max_samples: int, threads: int = 1, *, distances: bool = False):
+def _metrics(work: PreparedWidths, max_samples: int, threads: int = 1, *, distances: bool = False):
     """The metrics, the profile table and (with ``distances``, else None) the distances measured."""
     mesh, contour, integrals = work.mesh, work.contour, work.integrals
     geometry = _ContourGeometry(contour)

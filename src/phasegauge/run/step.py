@@ -181,8 +181,9 @@ def analyse_step(step, options, *, contour_dir: str | None = None, reported_mesh
         the planes of a section operator, the widths' distance searches) on a mesh of at least
         :data:`THREADED_CELLS` cells; the result is the same bit for bit on any number. With two
         or more, the sections are measured beside the phase analyses (a new mesh's operator built
-        there first, on half the threads), and within those the bulk values beside the contour and
-        the droplets beside the widths: up to two threads more than ``threads`` may then run at
+        there first, on half the threads), and within those the contour beside the widths' band
+        integrals (or, with no widths asked, the bulk values beside the contour) and the droplets
+        beside the widths: up to two threads more than ``threads`` may then run at
         once (they share the interpreter lock, so they overlap only in part).
     """
     from ..analysis import mixing
@@ -287,13 +288,17 @@ def _phase_analyses(step, mesh, ind, options, result, m: dict, velocity: tuple, 
                 mesh, u_cell if u_location == "cell" else u_point, ind, velocity_location=u_location)
             m.update({k: v for k, v in flux.items() if k != "open_boundary"})
             m["open_boundary"] = bool(flux["open_boundary"])
-    contour = extremes = measured = plateaus = None
-    if "interface" in options.analyses or "droplets" in options.analyses:
-        # the measured bulk values of the two phases (the widths and the droplets are taken between
-        # them), with threads to spare found beside the contour (nothing there warns)
+    contour = measured = plateaus = prepared = None
+    # the contour and the measured bulk values of the two phases (the widths and the droplets are
+    # taken between them); with threads to spare, work beside (nothing there warns): the contour
+    # beside the widths' band integrals, or the bulk values beside the contour
+    if "interface" in options.analyses:
+        prepared = interface.prepare_widths(mesh, ind, level=options.level, threads=threads)
+        contour, plateaus = prepared.contour, prepared.plateaus
+    elif "droplets" in options.analyses:
         bulk = Beside(interface.bulk_plateaus, ind.point, options.level) if threads >= 2 else None
         with bulk or nullcontext():
-            contour, extremes = interface.find_interface(mesh, ind.point, level=options.level, return_extremes=True)
+            contour = interface.find_interface(mesh, ind.point, level=options.level)
         plateaus = interface.bulk_plateaus(ind.point, options.level) if bulk is None else bulk.result()
     labels = None  # with threads to spare, the droplets are labelled beside the widths (nothing there warns)
     if "droplets" in options.analyses and "interface" in options.analyses and threads >= 2:
@@ -301,9 +306,9 @@ def _phase_analyses(step, mesh, ind, options, result, m: dict, velocity: tuple, 
     with labels or nullcontext():
         if "interface" in options.analyses:
             # a mixture run keeps the distances the widths measured: its bulk cells need few more
-            widths = interface.interface_metrics(mesh, ind, level=options.level, contour=contour,
-                                                 extremes=extremes, return_distances=options.model is not None,
-                                                 plateaus=plateaus, threads=threads)
+            widths = interface.interface_metrics(mesh, ind, level=options.level, prepared=prepared,
+                                                 return_distances=options.model is not None, threads=threads)
+            prepared = None  # the band integrals and values between the bulk values: not held further
             if options.model is not None:
                 widths, measured = widths
             m.update(widths)
@@ -312,7 +317,6 @@ def _phase_analyses(step, mesh, ind, options, result, m: dict, velocity: tuple, 
 
                 write_contour(contour, os.path.join(contour_dir, f"interface_{step.index:06d}.vtu"),
                               time=step.time, step=step.index)
-    extremes = None  # c's corner extremes of every cell (16 bytes a cell): read by the contour and widths only
     if "droplets" in options.analyses:
         found = _label_droplets(mesh, ind, options, u_cell, contour, plateaus) if labels is None else labels.result()
         table = found.table
