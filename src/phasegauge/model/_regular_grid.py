@@ -20,6 +20,9 @@ if TYPE_CHECKING:
 
 __all__ = ["RegularGrid", "find_regular_grid"]
 
+#: about this many points sampled before the full search
+_SAMPLE = 4096
+
 
 @dataclass(frozen=True)
 class RegularGrid:
@@ -95,6 +98,15 @@ def find_regular_grid(mesh: Mesh) -> RegularGrid | None:
     # coordinates, spans less than the others)
     scale = float(np.ptp(mesh.bounds, axis=0).max()) or 1.0
     tol = 1e-9 * scale
+    # a grid's points lie within tol of their axis value (checked below), so a sample of them has
+    # no more distinct values along an axis than the grid: their product above the point count
+    # ends the search before every coordinate is sorted (a jittered mesh)
+    sample = X[::max(1, mesh.n_points // _SAMPLE)]
+    distinct = 1
+    for d in range(mesh.dimension):
+        distinct *= 1 + int(np.count_nonzero(np.diff(np.sort(sample[:, d])) > tol))
+    if distinct > mesh.n_points:
+        return None
     for d in range(mesh.dimension):
         s = np.sort(X[:, d])
         starts = np.concatenate([[0], np.flatnonzero(np.diff(s) > tol) + 1])
