@@ -345,12 +345,12 @@ def find_interface(mesh: Mesh, c_point, *, level: float = 0.5, method: str = "au
     if method == "grid" and not np.all(np.isfinite(c)):
         raise OptionError("method 'grid' cannot skip NaN point values",
                           fix="use method='cells' (or 'auto'), which skips cells with a NaN corner")
+    extremes = _check_extremes(mesh, extremes)
     use_grid = method == "grid" or (method == "auto" and mesh.regular_grid is not None
                                      and bool(np.all(np.isfinite(c))))
     if use_grid:
         contour, extremes = _find_on_grid(mesh, c, level), None
     else:
-        extremes = _check_extremes(mesh, extremes)
         if extremes is None:
             extremes = corner_extremes(mesh, c)
         contour = _find_on_simplices(mesh, c, level, extremes)

@@ -22,7 +22,8 @@ from ..model._statistics import weighted_quantile
 from ..model.contour import Contour
 from ..model.corners import CornerExtremes, cell_gradient, corner_extremes
 from ..model.mesh import Mesh
-from ..model._threads import Beside
+from ..model._threads import Beside, check_threads
+from ..model.simplices import _split_plan
 from ._contour import _check_extremes, _check_level, find_interface
 from ._profile_fits import PROFILE_COLUMNS, WIDTH_PER_EPS, _profile_table
 from ._hex_integrals import _HexBand, coned_hexahedra
@@ -82,7 +83,8 @@ def _check_samples(max_samples) -> int:
 
 class PreparedWidths:
     """What the widths read besides the distances: the contour, the values between the bulk values
-    and the band integrals (:func:`prepare_widths`).
+    and the band integrals. Made by :func:`prepare_widths` (or inside :func:`interface_metrics`),
+    for :func:`interface_metrics` of the same mesh, indicator and level.
 
     Attributes
     ----------
@@ -91,14 +93,21 @@ class PreparedWidths:
     plateaus : tuple of 3 floats
         ``(low, high, tail)`` as :func:`bulk_plateaus` gives them.
     level : float
+        The contour level.
+
+    The other attributes are the metrics' own: the indicator and its point values (``indicator``,
+    ``c_point``), those values between the bulk values (``clipped``, with ``width_level``), the
+    threshold-free numerator on cell data (``cell_mixed``) and the band integrals (``integrals``).
     """
 
-    def __init__(self, mesh: Mesh, indicator, level: float, contour=None, extremes=None, plateaus=None,
+    def __init__(self, mesh: Mesh, indicator, level: float, *, contour=None, extremes=None, plateaus=None,
                  threads: int = 1):
         self.level = _check_level(level)
-        self.mesh = mesh
+        threads = check_threads(threads)
+        self.mesh, self.indicator = mesh, indicator
         _, self.c_point = _indicator_values(mesh, indicator, need_cells=False)
         extremes = _check_extremes(mesh, extremes)
+        plateaus = None if plateaus is None else _check_plateaus(plateaus)
         if contour is not None and not isinstance(contour, Contour):
             raise OptionError(f"contour must be a Contour, found {type(contour).__name__}",
                               fix="pass the result of find_interface, or None")
@@ -108,11 +117,13 @@ class PreparedWidths:
         side = None
         if contour is None:  # found beside the integrals with threads to spare (nothing there warns)
             if threads >= 2:
+                if layout is None:  # the split plan both read: made once, before the thread starts
+                    _split_plan(mesh, threads=threads)
                 side = Beside(find_interface, mesh, self.c_point, level=self.level, extremes=extremes)
             else:
                 contour = find_interface(mesh, self.c_point, level=self.level, extremes=extremes)
         with side or nullcontext():  # waited for however the integrals end
-            low, high, tail = bulk_plateaus(self.c_point, self.level) if plateaus is None else _check_plateaus(plateaus)
+            low, high, tail = bulk_plateaus(self.c_point, self.level) if plateaus is None else plateaus
             self.plateaus = (low, high, tail)
             self.cell_mixed = _cell_mixed(mesh, indicator, low, high, tail)
             if (low, high) == (0.0, 1.0):
@@ -286,9 +297,10 @@ def interface_metrics(mesh: Mesh, indicator, *, level: float = 0.5, contour: Con
         band integrals.
     prepared : PreparedWidths, optional
         The contour, bulk values and band integrals :func:`prepare_widths`
-        formed for the same indicator and ``level`` (a caller that reads the
-        contour before the widths forms them once); then ``contour``,
-        ``extremes`` and ``plateaus`` are not given.
+        formed for the same mesh, indicator (the same object: it is not read
+        again) and ``level`` (a caller that reads the contour before the
+        widths forms them once); then ``contour``, ``extremes`` and
+        ``plateaus`` are not given.
 
     Returns
     -------
@@ -339,8 +351,9 @@ def interface_metrics(mesh: Mesh, indicator, *, level: float = 0.5, contour: Con
     OptionError
         An indicator of the wrong shape, a non-finite level, a bad
         ``max_samples``, a ``contour`` that is not a Contour, ``extremes``
-        that do not fit the mesh, or ``prepared`` for another mesh or level,
-        or given with any of ``contour``, ``extremes`` and ``plateaus``.
+        that do not fit the mesh, a bad ``threads``, or ``prepared`` for
+        another mesh, indicator or level, or given with any of ``contour``,
+        ``extremes`` and ``plateaus``.
 
     Notes
     -----
@@ -383,9 +396,11 @@ def interface_metrics(mesh: Mesh, indicator, *, level: float = 0.5, contour: Con
     """
     max_samples = _check_samples(max_samples)
     if prepared is None:
-        prepared = PreparedWidths(mesh, indicator, level, contour, extremes, plateaus, threads)
+        prepared = PreparedWidths(mesh, indicator, level, contour=contour, extremes=extremes, plateaus=plateaus,
+                                  threads=threads)
     else:
-        _check_prepared(prepared, mesh, level, contour, extremes, plateaus)
+        threads = check_threads(threads)
+        _check_prepared(prepared, mesh, indicator, level, contour, extremes, plateaus)
     metrics, _, distances = _metrics(prepared, max_samples, threads, distances=return_distances)
     return (metrics, distances) if return_distances else metrics
 
@@ -409,17 +424,22 @@ def prepare_widths(mesh: Mesh, indicator, *, level: float = 0.5, threads: int = 
         ``contour`` (as :func:`find_interface` gives it) and ``plateaus`` (as
         :func:`bulk_plateaus` gives them) to read; the rest is for
         :func:`interface_metrics`.
+
+    Raises
+    ------
+    OptionError
+        An indicator of the wrong shape, a non-finite level or a bad ``threads``.
     """
     return PreparedWidths(mesh, indicator, level, threads=threads)
 
 
-def _check_prepared(prepared, mesh: Mesh, level: float, contour, extremes, plateaus) -> None:
+def _check_prepared(prepared, mesh: Mesh, indicator, level: float, contour, extremes, plateaus) -> None:
     if not isinstance(prepared, PreparedWidths):
         raise OptionError(f"prepared must be what prepare_widths gives, found {type(prepared).__name__}",
                           fix="pass prepare_widths(mesh, indicator, level=...), or None")
-    if prepared.mesh is not mesh or prepared.level != _check_level(level):
-        raise OptionError("prepared was formed for another mesh or level",
-                          fix="pass prepare_widths(...) of the same mesh, indicator and level")
+    if prepared.mesh is not mesh or prepared.indicator is not indicator or prepared.level != _check_level(level):
+        raise OptionError("prepared was formed for another mesh, indicator or level",
+                          fix="pass prepare_widths(...) of the same mesh, indicator object and level")
     if contour is not None or extremes is not None or plateaus is not None:
         raise OptionError("prepared already holds the contour, the extremes and the bulk values",
                           fix="give prepared alone, or contour, extremes and plateaus without it")
@@ -461,20 +481,20 @@ def interface_profile_table(mesh: Mesh, indicator, *, level: float = 0.5, contou
     .. [1] Olsson, E. and Kreiss, G. (2005), J. Comput. Phys. 210:225-246.
     """
     max_samples = _check_samples(max_samples)
-    work = PreparedWidths(mesh, indicator, level, contour, extremes)
-    return _metrics(work, max_samples)[1]
+    prepared = PreparedWidths(mesh, indicator, level, contour=contour, extremes=extremes)
+    return _metrics(prepared, max_samples)[1]
 
 
-def _metrics(work: PreparedWidths, max_samples: int, threads: int = 1, *, distances: bool = False):
+def _metrics(prepared: PreparedWidths, max_samples: int, threads: int = 1, *, distances: bool = False):
     """The metrics, the profile table and (with ``distances``, else None) the distances measured."""
-    mesh, contour, integrals = work.mesh, work.contour, work.integrals
+    mesh, contour, integrals = prepared.mesh, prepared.contour, prepared.integrals
     geometry = _ContourGeometry(contour)
     size = geometry.size
     if contour.n_elements == 0 or not size > 0 or integrals.count == 0:
         return _nan_metrics(), pd.DataFrame(columns=list(PROFILE_COLUMNS)), None
     width = integrals.band / size
     total_grad = integrals.total_gradient
-    mixed = integrals.mixed if work.cell_mixed is None else work.cell_mixed
+    mixed = integrals.mixed if prepared.cell_mixed is None else prepared.cell_mixed
     eps = mixed / total_grad if total_grad > 0 else float("nan")
     # second moment of the normal distance, weighted by |grad c|, out to 10 eps (the logistic
     # tails beyond hold 0.3 % of its variance) or 4 cells, whichever is farther
@@ -485,11 +505,11 @@ def _metrics(work: PreparedWidths, max_samples: int, threads: int = 1, *, distan
     # threshold-free eps, and would widen the range that then picks up more of that cloud)
     band_eps = min(eps, width / WIDTH_PER_EPS) if np.isfinite(eps) else width / WIDTH_PER_EPS
     bound = max(_MOMENT_RANGE * band_eps, 4.0 * h_interface) if np.isfinite(band_eps) else np.inf
-    dist = integrals.distances(geometry, work.width_level, bound, threads)
+    dist = integrals.distances(geometry, prepared.width_level, bound, threads)
     m0, m1, m2 = integrals.moments(dist)
     variance = m2 / m0 - (m1 / m0) ** 2 if m0 > 0 else float("nan")
     # cells of the contour
-    g_el = cell_gradient(mesh, work.clipped, cells=contour.cells)
+    g_el = cell_gradient(mesh, prepared.clipped, cells=contour.cells)
     with np.errstate(divide="ignore"):
         across = (_WIDTH_10_90_PER_EPS / (4.0 * np.linalg.norm(g_el, axis=1))) / h
     under = float(sizes[~(across >= RESOLVED_CELLS)].sum() / size)
@@ -518,8 +538,8 @@ def _metrics(work: PreparedWidths, max_samples: int, threads: int = 1, *, distan
         "widest_x": widest[0], "widest_y": widest[1], "widest_z": widest[2],
         "under_resolved_interface_fraction": under,
         "interface_cells_across": float(cells_across) if np.isfinite(cells_across) else float("nan"),
-        "bulk_c_low": float(work.plateaus[0]), "bulk_c_high": float(work.plateaus[1]),
+        "bulk_c_low": float(prepared.plateaus[0]), "bulk_c_high": float(prepared.plateaus[1]),
         "width_cell_data_bias": (CELL_DATA_BIAS * (h_interface / eps) ** 2
-                                 if work.cell_mixed is not None and eps > 0 else float("nan")),
+                                 if prepared.cell_mixed is not None and eps > 0 else float("nan")),
     }
     return metrics, table, measured

@@ -134,9 +134,9 @@ class Beside:
 
     For work the caller's next steps do not read (a step's sections, and a new mesh's section
     operator, while the interface is measured; the contour while the widths' band integrals are
-    formed, or the bulk values while it is found; the droplets while the widths are measured): nothing it makes is read before :meth:`result`, and
-    it must not warn (its warnings would land among the caller's in no fixed order: it returns them
-    for the caller to give). The mesh caches both threads
+    formed, or the bulk values while it is found; the droplets while the widths are measured):
+    nothing it makes is read before :meth:`result`, and it must not warn (its warnings would land
+    among the caller's in no fixed order: it returns them for the caller to give). The mesh caches both threads
     may make (``Mesh.memo`` entries, cached properties) are pure functions of the mesh: made twice
     at once they cost time, never a different value. numpy's error settings (``np.errstate``)
     are not carried over to the thread. As a context manager (``with Beside(...) as side:``) the
