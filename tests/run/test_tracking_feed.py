@@ -75,8 +75,10 @@ def test_serial_tracking_equals_the_tracker_fed_with_whole_meshes(series_dir, se
     pd.testing.assert_frame_equal(serial.droplets, droplets, check_exact=True)
     pd.testing.assert_frame_equal(serial.events, events, check_exact=True)
     assert "coalescence" in set(serial.events["kind"])
-    # the results keep no mesh arrays once tracked
+    # the results keep no mesh arrays once tracked, nor the labelled cells (the run's memory stays
+    # flat in its steps)
     assert all(r.outline is not None and r.outline.cell_centroids is None for r in serial.results)
+    assert all(r.label_cells is None and r.label_values is None and r.label_weights is None for r in serial.results)
 
 
 @pytest.mark.parametrize("workers", [2, 3])

@@ -164,6 +164,9 @@ class TrackingFeed:
                                            result.label_cells, result.label_values, result.label_weights,
                                            whole_cells=result.label_whole)
                     self._last = outline
+            # the labelled cells are read by the tracking only (which keeps the last step's): the
+            # result list keeps no per-cell arrays, so a run's memory stays flat in its steps
+            result.label_cells = result.label_values = result.label_weights = None
             del self._waiting[self._order[self._position]]
             self._position += 1
         needed = {r.outline.signature for r in self._waiting.values() if r.outline is not None}

@@ -42,7 +42,9 @@ class StepResult:
     step waits to be tracked); ``label_cells``, ``label_values`` and
     ``label_weights`` are the labelled cells of the droplet analysis (cell numbers, droplet
     numbers, ``c dV``): on a mesh whose cells a reader split (``label_whole``), whole cells
-    numbered by :attr:`Mesh.cell_parents`, as the droplets are labelled there.
+    numbered by :attr:`Mesh.cell_parents`, as the droplets are labelled there. The run's
+    droplet tracking reads them and then sets them to None (the run's result list keeps no
+    per-cell arrays).
     """
 
     index: int
