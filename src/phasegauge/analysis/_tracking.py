@@ -207,8 +207,9 @@ class DropletTracker:
 
         Notes
         -----
-        A run keeps each step's labels in this form, so the series-level tracking needs
-        neither the step's fields nor its whole mesh. The arrays are trusted as given
+        A run keeps each step's labels in this form until the step is linked (then lets
+        them go), so the series-level tracking needs neither the step's fields nor its
+        whole mesh. The arrays are trusted as given
         (:meth:`add` checks full label arrays first).
         """
         n_drop = len(table)

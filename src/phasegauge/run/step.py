@@ -42,9 +42,10 @@ class StepResult:
     step waits to be tracked); ``label_cells``, ``label_values`` and
     ``label_weights`` are the labelled cells of the droplet analysis (cell numbers, droplet
     numbers, ``c dV``): on a mesh whose cells a reader split (``label_whole``), whole cells
-    numbered by :attr:`Mesh.cell_parents`, as the droplets are labelled there. The run's
-    droplet tracking reads them and then sets them to None (the run's result list keeps no
-    per-cell arrays).
+    numbered by :attr:`Mesh.cell_parents`, as the droplets are labelled there. Once the run's
+    :class:`~phasegauge.run.assemble.TrackingFeed` has linked the step they are None (its
+    tracking reads them first, when it tracks the step): the run's result list keeps no
+    per-cell arrays.
     """
 
     index: int
@@ -71,18 +72,6 @@ class StepResult:
     extra: object = None  # what options.step_extra returned (e.g. c sampled for a comparison)
     field_source: str = ""  # which copy of the field was read, in words
     samples: np.ndarray | None = None  # field and c at the run's probe, line and measured points (n, 2)
-
-    def labels(self, n_cells: int) -> tuple[np.ndarray, np.ndarray]:
-        """Droplet label of every cell (-1: none) and the c dV weights of the labelled cells.
-
-        ``n_cells``: the cells of the labels' numbering (whole cells with ``label_whole``).
-        """
-        out = np.full(n_cells, -1, dtype=np.int32)
-        weights = np.zeros(n_cells)
-        if self.label_cells is not None:
-            out[self.label_cells] = self.label_values
-            weights[self.label_cells] = self.label_weights
-        return out, weights
 
 
 # ------------------------------------------------------------------ the analyses of one step
