@@ -91,7 +91,8 @@ def test_cell_path_matches_the_full_split(monkeypatch, name, cells_across):
     # the distances against the contour's own triangles (the path searches one plane per crossed
     # cell instead: tested against the analytic distance below), so that the integrals and the
     # moments are compared with the split's alone
-    monkeypatch.setattr(hex_module, "_whole_cell_pieces", lambda mesh, geometry: geometry)
+    for module in (hex_module, width_module):  # (formed with the contour, and where the distances are searched)
+        monkeypatch.setattr(module, "_whole_cell_pieces", lambda mesh, geometry: geometry)
     triangles = interface_metrics(mesh, c)
     assert triangles["interface_width"] == pieces["interface_width"]  # the band volume reads no distance
     # the second moment reads them: the pieces' planes within O(h^2 / R) of the triangles'

@@ -27,7 +27,7 @@ from ..model.simplices import _split_plan
 from ._contour import _check_extremes, _check_level, find_interface
 from ._profile_fits import PROFILE_COLUMNS, WIDTH_PER_EPS, _profile_table
 from ._hex_integrals import _HexBand, coned_hexahedra
-from ._signed_distance import MeasuredDistances, _ContourGeometry
+from ._signed_distance import MeasuredDistances, _ContourGeometry, _whole_cell_pieces
 from ._width_integrals import _TAIL, _GridBand, _SplitBand, _grid_tetrahedra
 
 __all__ = ["interface_metrics", "interface_profile_table", "prepare_widths", "PreparedWidths", "METRIC_KEYS",
@@ -96,8 +96,10 @@ class PreparedWidths:
         The contour level.
 
     The other attributes are the metrics' own: the indicator and its point values (``indicator``,
-    ``c_point``), those values between the bulk values (``clipped``, with ``width_level``), the
-    threshold-free numerator on cell data (``cell_mixed``) and the band integrals (``integrals``).
+    ``c_point``), the contour's element sizes, centroids and normals (``geometry``) and the whole
+    cells' pieces the distances search (``pieces``, or None), those values between the bulk values
+    (``clipped``, with ``width_level``), the threshold-free numerator on cell data (``cell_mixed``)
+    and the band integrals (``integrals``).
     """
 
     def __init__(self, mesh: Mesh, indicator, level: float, *, contour=None, extremes=None, plateaus=None,
@@ -114,14 +116,16 @@ class PreparedWidths:
         layout = _grid_tetrahedra(mesh)
         if extremes is None and layout is None:  # read by the integrals (and the contour on the cells)
             extremes = corner_extremes(mesh, self.c_point)
-        side = None
-        if contour is None:  # found beside the integrals with threads to spare (nothing there warns)
-            if threads >= 2:
-                if layout is None:  # the split plan both read: made once, before the thread starts
-                    _split_plan(mesh, threads=threads)
-                side = Beside(find_interface, mesh, self.c_point, level=self.level, extremes=extremes)
-            else:
-                contour = find_interface(mesh, self.c_point, level=self.level, extremes=extremes)
+        if layout is None and threads >= 2:  # the split plan both threads read: made before they run
+            _split_plan(mesh, threads=threads)
+        pieces = _searches_pieces(mesh, layout)
+        side = found = None
+        if contour is not None:
+            found = (contour,) + _contour_geometry(mesh, contour, pieces)
+        elif threads >= 2:  # found beside the integrals, with its geometry (nothing there warns)
+            side = Beside(_found_contour, mesh, self.c_point, self.level, extremes, pieces)
+        else:
+            found = _found_contour(mesh, self.c_point, self.level, extremes, pieces)
         with side or nullcontext():  # waited for however the integrals end
             low, high, tail = bulk_plateaus(self.c_point, self.level) if plateaus is None else plateaus
             self.plateaus = (low, high, tail)
@@ -133,7 +137,7 @@ class PreparedWidths:
                 self.clipped = np.clip((self.c_point - low) / (high - low), 0.0, 1.0)
                 self.width_level = (self.level - low) / (high - low)
             self.integrals = self._integrals(layout, extremes, tail)
-        self.contour = contour if side is None else side.result()
+        self.contour, self.geometry, self.pieces = found if side is None else side.result()
 
     def _integrals(self, layout, extremes, tail: float):
         mesh, (low, high, _) = self.mesh, self.plateaus
@@ -148,6 +152,28 @@ class PreparedWidths:
         if coned is not None:  # hexahedra coned on all faces: integrated cell by cell
             return _HexBand(mesh, self.clipped, active, coned, lo, hi)
         return _SplitBand(mesh, self.clipped, active)
+
+
+def _searches_pieces(mesh: Mesh, layout) -> bool:
+    """Whether the widths' distances search one element per crossed whole cell
+    (:func:`._signed_distance._whole_cell_pieces`), not the contour's own elements: on a mesh with
+    coned hexahedra (:meth:`._hex_integrals._HexBand.distances`) or one a reader split
+    (:meth:`._width_integrals._SplitBand.distances`); never on a grid's layout."""
+    return layout is None and (coned_hexahedra(mesh) is not None or mesh.cell_parents is not None)
+
+
+def _contour_geometry(mesh: Mesh, contour: Contour, pieces: bool) -> tuple:
+    """The contour's element sizes, centroids and normals, and with ``pieces`` (and elements) the
+    whole cells' pieces the distances search (else None)."""
+    geometry = _ContourGeometry(contour)
+    return geometry, (_whole_cell_pieces(mesh, geometry) if pieces and contour.n_elements else None)
+
+
+def _found_contour(mesh: Mesh, c_point, level: float, extremes, pieces: bool) -> tuple:
+    """The contour at ``level`` and its geometry (:func:`_contour_geometry`): the work of the contour's
+    own thread, beside the band integrals."""
+    contour = find_interface(mesh, c_point, level=level, extremes=extremes)
+    return (contour,) + _contour_geometry(mesh, contour, pieces)
 
 
 def _cell_mixed(mesh: Mesh, indicator, low: float, high: float, tail: float):
@@ -488,7 +514,7 @@ def interface_profile_table(mesh: Mesh, indicator, *, level: float = 0.5, contou
 def _metrics(prepared: PreparedWidths, max_samples: int, threads: int = 1, *, distances: bool = False):
     """The metrics, the profile table and (with ``distances``, else None) the distances measured."""
     mesh, contour, integrals = prepared.mesh, prepared.contour, prepared.integrals
-    geometry = _ContourGeometry(contour)
+    geometry = prepared.geometry
     size = geometry.size
     if contour.n_elements == 0 or not size > 0 or integrals.count == 0:
         return _nan_metrics(), pd.DataFrame(columns=list(PROFILE_COLUMNS)), None
@@ -505,7 +531,8 @@ def _metrics(prepared: PreparedWidths, max_samples: int, threads: int = 1, *, di
     # threshold-free eps, and would widen the range that then picks up more of that cloud)
     band_eps = min(eps, width / WIDTH_PER_EPS) if np.isfinite(eps) else width / WIDTH_PER_EPS
     bound = max(_MOMENT_RANGE * band_eps, 4.0 * h_interface) if np.isfinite(band_eps) else np.inf
-    dist = integrals.distances(geometry, prepared.width_level, bound, threads)
+    searched = geometry if prepared.pieces is None else prepared.pieces
+    dist = integrals.distances(searched, prepared.width_level, bound, threads)
     m0, m1, m2 = integrals.moments(dist)
     variance = m2 / m0 - (m1 / m0) ** 2 if m0 > 0 else float("nan")
     # cells of the contour
