@@ -118,14 +118,14 @@ class PreparedWidths:
             extremes = corner_extremes(mesh, self.c_point)
         if layout is None and threads >= 2:  # the split plan both threads read: made before they run
             _split_plan(mesh, threads=threads)
-        pieces = _searches_pieces(mesh, layout)
+        merge = _searches_pieces(mesh, layout)
         side = found = None
         if contour is not None:
-            found = (contour,) + _contour_geometry(mesh, contour, pieces)
+            found = (contour,) + _contour_geometry(mesh, contour, merge)
         elif threads >= 2:  # found beside the integrals, with its geometry (nothing there warns)
-            side = Beside(_found_contour, mesh, self.c_point, self.level, extremes, pieces)
+            side = Beside(_found_contour, mesh, self.c_point, self.level, extremes, merge)
         else:
-            found = _found_contour(mesh, self.c_point, self.level, extremes, pieces)
+            found = _found_contour(mesh, self.c_point, self.level, extremes, merge)
         with side or nullcontext():  # waited for however the integrals end
             low, high, tail = bulk_plateaus(self.c_point, self.level) if plateaus is None else plateaus
             self.plateaus = (low, high, tail)
@@ -162,18 +162,18 @@ def _searches_pieces(mesh: Mesh, layout) -> bool:
     return layout is None and (coned_hexahedra(mesh) is not None or mesh.cell_parents is not None)
 
 
-def _contour_geometry(mesh: Mesh, contour: Contour, pieces: bool) -> tuple:
-    """The contour's element sizes, centroids and normals, and with ``pieces`` (and elements) the
+def _contour_geometry(mesh: Mesh, contour: Contour, merge: bool) -> tuple:
+    """The contour's element sizes, centroids and normals, and with ``merge`` (and elements) the
     whole cells' pieces the distances search (else None)."""
     geometry = _ContourGeometry(contour)
-    return geometry, (_whole_cell_pieces(mesh, geometry) if pieces and contour.n_elements else None)
+    return geometry, (_whole_cell_pieces(mesh, geometry) if merge and contour.n_elements else None)
 
 
-def _found_contour(mesh: Mesh, c_point, level: float, extremes, pieces: bool) -> tuple:
+def _found_contour(mesh: Mesh, c_point, level: float, extremes, merge: bool) -> tuple:
     """The contour at ``level`` and its geometry (:func:`_contour_geometry`): the work of the contour's
     own thread, beside the band integrals."""
     contour = find_interface(mesh, c_point, level=level, extremes=extremes)
-    return (contour,) + _contour_geometry(mesh, contour, pieces)
+    return (contour,) + _contour_geometry(mesh, contour, merge)
 
 
 def _cell_mixed(mesh: Mesh, indicator, low: float, high: float, tail: float):
