@@ -460,6 +460,11 @@ class _HexBand:
         self.total_gradient = self.cells.total_gradient + (self.rest.total_gradient if self.rest else 0.0)
         self._rest_dist = None
 
+    @staticmethod
+    def merges_pieces(mesh: Mesh) -> bool:
+        """True: :meth:`distances` searches one element per crossed whole cell."""
+        return True
+
     def distances(self, geometry: _ContourGeometry, level: float, bound: float, threads: int = 1) -> np.ndarray:
         """Signed distances at the mesh points the cells need (NaN elsewhere and beyond ``bound``),
         each search on up to ``threads`` threads."""

@@ -118,7 +118,8 @@ class PreparedWidths:
             extremes = corner_extremes(mesh, self.c_point)
         if layout is None and threads >= 2:  # the split plan both threads read: made before they run
             _split_plan(mesh, threads=threads)
-        merge = _searches_pieces(mesh, layout)
+        band = _band_kind(mesh, layout)
+        merge = band.merges_pieces(mesh)
         side = found = None
         if contour is not None:
             found = (contour,) + _contour_geometry(mesh, contour, merge)
@@ -136,30 +137,29 @@ class PreparedWidths:
             else:  # the estimators see the profile between the measured bulk values
                 self.clipped = np.clip((self.c_point - low) / (high - low), 0.0, 1.0)
                 self.width_level = (self.level - low) / (high - low)
-            self.integrals = self._integrals(layout, extremes, tail)
+            self.integrals = self._integrals(band, layout, extremes, tail)
         self.contour, self.geometry, self.pieces = found if side is None else side.result()
 
-    def _integrals(self, layout, extremes, tail: float):
+    def _integrals(self, band, layout, extremes, tail: float):
         mesh, (low, high, _) = self.mesh, self.plateaus
-        if layout is not None:
+        if band is _GridBand:
             return _GridBand(mesh, self.clipped, layout, cutoff=tail)
         # the extremes of the clipped values are the clipped extremes: those of c will do
         lo, hi = extremes
         if (low, high) != (0.0, 1.0):
             lo, hi = (lo - low) / (high - low), (hi - low) / (high - low)
         active = (hi > tail) & (lo < 1.0 - tail)
-        coned = coned_hexahedra(mesh)
-        if coned is not None:  # hexahedra coned on all faces: integrated cell by cell
-            return _HexBand(mesh, self.clipped, active, coned, lo, hi)
+        if band is _HexBand:  # hexahedra coned on all faces: integrated cell by cell
+            return _HexBand(mesh, self.clipped, active, coned_hexahedra(mesh), lo, hi)
         return _SplitBand(mesh, self.clipped, active)
 
 
-def _searches_pieces(mesh: Mesh, layout) -> bool:
-    """Whether the widths' distances search one element per crossed whole cell
-    (:func:`._signed_distance._whole_cell_pieces`), not the contour's own elements: on a mesh with
-    coned hexahedra (:meth:`._hex_integrals._HexBand.distances`) or one a reader split
-    (:meth:`._width_integrals._SplitBand.distances`); never on a grid's layout."""
-    return layout is None and (coned_hexahedra(mesh) is not None or mesh.cell_parents is not None)
+def _band_kind(mesh: Mesh, layout):
+    """The class of the band integrals of ``mesh``: on a grid's layout, on coned hexahedra cell by
+    cell, else on the simplex split (its ``merges_pieces`` says which elements its distances search)."""
+    if layout is not None:
+        return _GridBand
+    return _HexBand if coned_hexahedra(mesh) is not None else _SplitBand
 
 
 def _contour_geometry(mesh: Mesh, contour: Contour, merge: bool) -> tuple:

@@ -236,6 +236,11 @@ class _SplitBand:
                 if keep.any():
                     yield [rows[:, i][keep] for i in range(rows.shape[1])]
 
+    @staticmethod
+    def merges_pieces(mesh: Mesh) -> bool:
+        """Whether :meth:`distances` searches one element per crossed whole cell (a mesh a reader split)."""
+        return mesh.cell_parents is not None
+
     def distances(self, geometry: _ContourGeometry, level: float, bound: float, threads: int = 1) -> np.ndarray:
         """Signed distances at the known vertices (NaN elsewhere and beyond ``bound``), each search
         on up to ``threads`` threads.
@@ -248,7 +253,7 @@ class _SplitBand:
         elements.
         """
         mesh = self.mesh
-        if mesh.cell_parents is not None:
+        if self.merges_pieces(mesh):
             geometry = _whole_cell_pieces(mesh, geometry)
             centres = mesh.memo(SPLIT_CENTRES, lambda: None, keep=False)
             if centres is not None and self.active is not None:
@@ -399,6 +404,11 @@ class _GridBand:
             spread[tail] |= spread[head]
         self.known |= spread.ravel()
         self.total_gradient = float(self.weights.sum())
+
+    @staticmethod
+    def merges_pieces(mesh: Mesh) -> bool:
+        """False: :meth:`distances` searches the contour's own elements."""
+        return False
 
     def distances(self, geometry: _ContourGeometry, level: float, bound: float, threads: int = 1) -> np.ndarray:
         grid = self.grid
