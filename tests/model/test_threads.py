@@ -1,6 +1,7 @@
 """How many threads a process takes, and the setting that caps them."""
 
 import os
+import platform
 
 import pytest
 
@@ -28,6 +29,58 @@ def test_check_threads_refuses_what_is_no_count(bad):
 
 def test_check_threads_takes_counts():
     assert check_threads(3) == 3 and check_threads("4") == 4
+
+
+# Counts the arenas as glibc's own report lists them (malloc_info: one <heap nr=...> per arena), in a
+# fresh process: threads started by ordered_map and Beside allocate in the main thread's arena, and
+# a map on one thread leaves the allocator alone (a thread started after it gets an arena of its own).
+_ARENAS = """
+import ctypes, os, sys, tempfile, threading
+import numpy as np
+from phasegauge.model._threads import Beside, ordered_map
+libc = ctypes.CDLL(None)
+libc.fopen.restype = ctypes.c_void_p
+libc.fopen.argtypes = [ctypes.c_char_p, ctypes.c_char_p]
+libc.fclose.argtypes = [ctypes.c_void_p]
+libc.malloc_info.argtypes = [ctypes.c_int, ctypes.c_void_p]
+def arenas():
+    path = os.path.join(tempfile.mkdtemp(), "info.xml")
+    fp = libc.fopen(path.encode(), b"w")
+    libc.malloc_info(0, fp)
+    libc.fclose(fp)
+    with open(path) as f:
+        return f.read().count("<heap nr=")
+kept = []
+def work(i):
+    kept.append(np.ones(1000 + i))
+    return i
+counts = [arenas()]
+assert list(ordered_map(work, range(6), threads=1)) == list(range(6))
+if sys.argv[1] == "threads":
+    assert list(ordered_map(work, range(6), threads=3)) == list(range(6))
+    with Beside(work, 7):
+        pass
+else:
+    thread = threading.Thread(target=work, args=(7,))
+    thread.start()
+    thread.join()
+counts.append(arenas())
+print(*counts)
+"""
+
+
+@pytest.mark.skipif(platform.libc_ver()[0] != "glibc", reason="the arenas are glibc's")
+def test_threads_share_the_main_arena():
+    import subprocess
+    import sys
+
+    def arenas(how):
+        done = subprocess.run([sys.executable, "-c", _ARENAS, how], capture_output=True, text=True, timeout=120)
+        assert done.returncode == 0, done.stderr
+        return [int(n) for n in done.stdout.split()]
+
+    assert arenas("threads") == [1, 1]  # three pool threads and one beside: no arena of their own
+    assert arenas("one") == [1, 2]  # nothing set on one thread: a thread started later gets its own
 
 
 

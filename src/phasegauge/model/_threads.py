@@ -14,7 +14,7 @@ from concurrent.futures import ThreadPoolExecutor
 
 from ..errors import OptionError
 
-__all__ = ["THREADS_VARIABLE", "thread_count", "check_threads", "ordered_map", "Beside"]
+__all__ = ["THREADS_VARIABLE", "thread_count", "check_threads", "ordered_map", "Beside", "share_one_arena"]
 
 #: environment variable that caps the threads of one process (as OMP_NUM_THREADS does for OpenMP)
 THREADS_VARIABLE = "PHASEGAUGE_THREADS"
@@ -62,29 +62,42 @@ def ordered_map(function, items, *, threads: int = 1):
     if threads <= 1 or len(items) <= 1:
         yield from map(function, items)
         return
-    try:
-        with ThreadPoolExecutor(min(threads, len(items)), thread_name_prefix="phasegauge") as pool:
-            yield from pool.map(function, items)
-    finally:
-        _release_thread_arenas()
+    share_one_arena()
+    with ThreadPoolExecutor(min(threads, len(items)), thread_name_prefix="phasegauge") as pool:
+        yield from pool.map(function, items)
 
 
-def _release_thread_arenas() -> None:
-    """Give the memory the threads freed back to the system, where the C library is glibc.
+#: glibc's ``mallopt`` parameter of the most arenas (``M_ARENA_MAX`` in ``malloc.h``)
+_M_ARENA_MAX = -8
+_one_arena = threading.Event()  # set once :func:`share_one_arena` has run in this process
 
-    glibc gives each thread that allocates an arena of its own and keeps what is freed there for
-    later use: the memory a thread's arrays held stays counted in the process (about 40 MB more at
-    the peak of a 0.25M-cell run). ``malloc_trim(0)`` returns the free pages of every arena;
-    elsewhere nothing is done.
+
+def share_one_arena() -> None:
+    """Have the threads this process starts from now on allocate from the main thread's arena,
+    where the C library is glibc (``mallopt(M_ARENA_MAX, 1)``, once a process); elsewhere nothing.
+
+    glibc gives each thread that allocates an arena of its own, and keeps what is freed there for
+    that arena's later use: each arena holds its own high-water mark, so threads doing work side by
+    side held more at the peak than one thread doing it all (on 1M jittered hexahedra over 40 steps
+    657-661 MB against 581-582 MB in one arena). Handing their free pages back after every threaded
+    part (``malloc_trim``, as was done) cost page faults when the next step took them again: about
+    30 000 a step there, 4-5 s of system time over the run. In one arena what any thread frees is
+    taken by the next array of any thread. The setting is the process's, as the environment variable
+    ``MALLOC_ARENA_MAX=1`` would make it: arenas made before stay, and threads started later (the
+    host program's too) share the main one. A run on one thread (``PHASEGAUGE_THREADS=1``) starts
+    no thread and leaves the allocator as it is.
     """
+    if _one_arena.is_set():
+        return
+    _one_arena.set()
     import ctypes
 
     try:
-        trim = getattr(ctypes.CDLL(None), "malloc_trim", None)  # the symbols this process has loaded
+        mallopt = getattr(ctypes.CDLL(None), "mallopt", None)  # the symbols this process has loaded
     except OSError:
-        trim = None
-    if trim is not None:
-        trim(0)
+        mallopt = None
+    if mallopt is not None:
+        mallopt(_M_ARENA_MAX, 1)
 
 
 def prepare_mesh(mesh, *, threads: int = 1, split: bool = True) -> None:
@@ -153,6 +166,7 @@ class Beside:
             except BaseException as exc:  # handed to the caller by result()
                 self._error = exc
 
+        share_one_arena()
         self._thread = threading.Thread(target=run, name="phasegauge-beside", daemon=True)
         self._thread.start()
 
@@ -167,7 +181,6 @@ class Beside:
         if not self._joined:
             self._thread.join()
             self._joined = True
-            _release_thread_arenas()  # what the thread's arena kept
 
     def result(self):
         """The function's result, or its error raised here."""
