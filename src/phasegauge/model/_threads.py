@@ -91,10 +91,13 @@ def share_one_arena() -> None:
         return
     _one_arena.set()
     import ctypes
+    import platform
 
+    if platform.libc_ver()[0] != "glibc":  # (another C library's mallopt may read -8 otherwise)
+        return
     try:
         mallopt = getattr(ctypes.CDLL(None), "mallopt", None)  # the symbols this process has loaded
-    except OSError:
+    except (OSError, TypeError):
         mallopt = None
     if mallopt is not None:
         mallopt(_M_ARENA_MAX, 1)
