@@ -32,8 +32,9 @@ def test_check_threads_takes_counts():
 
 
 # Counts the arenas as glibc's own report lists them (malloc_info: one <heap nr=...> per arena), in a
-# fresh process: threads started by ordered_map and Beside allocate in the main thread's arena, and
-# a map on one thread leaves the allocator alone (a thread started after it gets an arena of its own).
+# fresh process: threads started by ordered_map, or by Beside alone, allocate in the main thread's
+# arena; a map on one thread leaves the allocator alone (a thread started after it gets an arena of
+# its own), and so does a process where the user set the arena count.
 _ARENAS = """
 import ctypes, os, sys, tempfile, threading
 import numpy as np
@@ -44,12 +45,13 @@ libc.fopen.argtypes = [ctypes.c_char_p, ctypes.c_char_p]
 libc.fclose.argtypes = [ctypes.c_void_p]
 libc.malloc_info.argtypes = [ctypes.c_int, ctypes.c_void_p]
 def arenas():
-    path = os.path.join(tempfile.mkdtemp(), "info.xml")
-    fp = libc.fopen(path.encode(), b"w")
-    libc.malloc_info(0, fp)
-    libc.fclose(fp)
-    with open(path) as f:
-        return f.read().count("<heap nr=")
+    with tempfile.TemporaryDirectory() as folder:
+        path = os.path.join(folder, "info.xml")
+        fp = libc.fopen(path.encode(), b"w")
+        libc.malloc_info(0, fp)
+        libc.fclose(fp)
+        with open(path) as f:
+            return f.read().count("<heap nr=")
 kept = []
 def work(i):
     kept.append(np.ones(1000 + i))
@@ -58,12 +60,24 @@ counts = [arenas()]
 assert list(ordered_map(work, range(6), threads=1)) == list(range(6))
 if sys.argv[1] == "threads":
     assert list(ordered_map(work, range(6), threads=3)) == list(range(6))
+if sys.argv[1] == "threads":
     with Beside(work, 7):
         pass
-else:
-    thread = threading.Thread(target=work, args=(7,))
+if sys.argv[1] == "one":
+    thread = threading.Thread(target=work, args=(8,))
     thread.start()
     thread.join()
+if sys.argv[1] == "beside":  # another thread started while the one beside runs (no arena freed yet)
+    other_done = threading.Event()
+    def waiting(i):
+        work(i)
+        return other_done.wait(60)
+    with Beside(waiting, 7) as side:
+        thread = threading.Thread(target=work, args=(8,))
+        thread.start()
+        thread.join()
+        other_done.set()
+    assert side.result()
 counts.append(arenas())
 print(*counts)
 """
@@ -74,14 +88,19 @@ def test_threads_share_the_main_arena():
     import subprocess
     import sys
 
-    def arenas(how):
-        done = subprocess.run([sys.executable, "-c", _ARENAS, how], capture_output=True, text=True, timeout=120)
+    def arenas(how, **settings):
+        env = {k: v for k, v in os.environ.items() if k not in ("MALLOC_ARENA_MAX", "GLIBC_TUNABLES")}
+        env.update(settings)
+        done = subprocess.run([sys.executable, "-c", _ARENAS, how], capture_output=True, text=True, timeout=120,
+                              env=env)
         assert done.returncode == 0, done.stderr
         return [int(n) for n in done.stdout.split()]
 
     assert arenas("threads") == [1, 1]  # three pool threads and one beside: no arena of their own
+    assert arenas("beside") == [1, 1]  # a thread beside first, and another while it runs: the same
     assert arenas("one") == [1, 2]  # nothing set on one thread: a thread started later gets its own
-
+    # the user's own count (here 4) is kept: the thread beside and the other get arenas of their own
+    assert arenas("beside", MALLOC_ARENA_MAX="4") == [1, 3]
 
 
 def test_beside_hands_back_the_result_or_the_error():

@@ -8,6 +8,7 @@ import numpy as np
 
 from ..model._centroids import cell_centroids_of
 from ..model._grouping import ranges
+from ..model._threads import share_one_arena
 from ..model.contour import Contour
 from ..model.simplices import SimplexSplit
 
@@ -29,6 +30,8 @@ def _nearest_plane_distance(points, rows, cent, normal, half, bound, compact=Fal
     """Distance from ``points[rows]`` to the nearest element's plane (see :func:`_signed_distance`);
     each query of the tree on up to ``threads`` threads (scipy's ``workers``: the same results)."""
     tree = _plane_tree(cent, compact)
+    if threads > 1:  # (scipy's threads allocate too)
+        share_one_arena()
     out = np.full(rows.size, np.nan)
     for lo in range(0, rows.size, _QUERY_CHUNK):  # each query is on its own: chunks change nothing
         at = points[rows[lo:lo + _QUERY_CHUNK]]
@@ -410,6 +413,8 @@ def _centre_split_distance(points: np.ndarray, values: np.ndarray, wanted: np.nd
         need[corners[ranges(offsets, picked)]] = True
         rows = np.flatnonzero(need)
         tree = _plane_tree(cent)  # as _nearest_plane_distance's: the corners find the search's elements
+        if threads > 1:
+            share_one_arena()
         found = np.empty((rows.size, _CANDIDATES), dtype=np.intp)
         for lo in range(0, rows.size, _QUERY_CHUNK):
             at = points[rows[lo:lo + _QUERY_CHUNK]]

@@ -39,7 +39,6 @@ import contextlib
 import hashlib
 import io
 import mmap
-import platform
 import re
 import warnings
 from dataclasses import dataclass
@@ -51,6 +50,7 @@ import numpy as np
 from ..errors import MeshWarning, UnreadableFileError, UnsupportedMeshError, short_text
 from ..model._grouping import ranges
 from ..model._places import first_copies
+from ..model._threads import heap_back_to_system
 from ._meshio_adapter import (CONVEX_POINT_SET, convex_point_sets, ensure_vtk_extras, new_mesh,
                               read_with_meshio)
 
@@ -99,31 +99,10 @@ def legacy_holds_polyhedra(path: str) -> bool:
             return bool(np.any(types == VTK_POLYHEDRON))
 
 
-def _heap_back_to_system() -> None:
-    """Hand the free pages of the C heap back to the system, where the C library is glibc
-    (``malloc_trim(0)``); elsewhere nothing.
-
-    VTK's reader allocates the file's arrays (several times the same cells' bytes as hexahedra) in
-    mappings of their own, beside the heap: what the heap kept free from the previous step's analysis
-    would add to them at the peak (on 1M polyhedra over 5 steps 978 MB above the start, 876 MB with
-    the pages handed back first). The next step's analysis takes its pages from the system again.
-    """
-    import ctypes
-
-    if platform.libc_ver()[0] != "glibc":
-        return
-    try:
-        trim = getattr(ctypes.CDLL(None), "malloc_trim", None)  # the symbols this process has loaded
-    except (OSError, TypeError):
-        trim = None
-    if trim is not None:
-        trim(0)
-
-
 def _read_grid(path: str):
     import pyvista
 
-    _heap_back_to_system()
+    heap_back_to_system()  # VTK maps the file's arrays beside the heap: what it kept free goes back first
     catcher = pyvista.VtkErrorCatcher(raise_errors=False)
     try:
         with warnings.catch_warnings(), catcher, contextlib.redirect_stderr(io.StringIO()):

@@ -14,7 +14,8 @@ from concurrent.futures import ThreadPoolExecutor
 
 from ..errors import OptionError
 
-__all__ = ["THREADS_VARIABLE", "thread_count", "check_threads", "ordered_map", "Beside", "share_one_arena"]
+__all__ = ["THREADS_VARIABLE", "thread_count", "check_threads", "ordered_map", "Beside", "share_one_arena",
+           "heap_back_to_system"]
 
 #: environment variable that caps the threads of one process (as OMP_NUM_THREADS does for OpenMP)
 THREADS_VARIABLE = "PHASEGAUGE_THREADS"
@@ -69,38 +70,65 @@ def ordered_map(function, items, *, threads: int = 1):
 
 #: glibc's ``mallopt`` parameter of the most arenas (``M_ARENA_MAX`` in ``malloc.h``)
 _M_ARENA_MAX = -8
-_one_arena = threading.Event()  # set once :func:`share_one_arena` has run in this process
+
+
+def _glibc():
+    """glibc's functions as ctypes sees them in this process, or None where the C library is another
+    (another library's ``mallopt`` may read -8 as something else; macOS has none; Windows no
+    ``CDLL(None)``)."""
+    try:
+        version = os.confstr("CS_GNU_LIBC_VERSION")  # (glibc's own name for itself)
+    except (AttributeError, OSError, ValueError):
+        return None
+    if not version or not version.startswith("glibc"):
+        return None
+    import ctypes
+
+    try:
+        return ctypes.CDLL(None)  # the symbols this process has loaded
+    except (OSError, TypeError):
+        return None
 
 
 def share_one_arena() -> None:
-    """Have the threads this process starts from now on allocate from the main thread's arena,
-    where the C library is glibc (``mallopt(M_ARENA_MAX, 1)``, once a process); elsewhere nothing.
+    """Have the threads this process starts from now on allocate from the arenas it has, making no
+    new one, where the C library is glibc (``mallopt(M_ARENA_MAX, 1)``; made again, the same
+    setting); elsewhere, or when the user set the arena count (``MALLOC_ARENA_MAX``, or
+    ``glibc.malloc.arena_max`` in ``GLIBC_TUNABLES``), nothing.
 
     glibc gives each thread that allocates an arena of its own, and keeps what is freed there for
     that arena's later use: each arena holds its own high-water mark, so threads doing work side by
     side held more at the peak than one thread doing it all (on 1M jittered hexahedra over 40 steps
-    657-661 MB against 581-582 MB in one arena). Handing their free pages back after every threaded
-    part (``malloc_trim``, as was done) cost page faults when the next step took them again: about
-    30 000 a step there, 4-5 s of system time over the run. In one arena what any thread frees is
-    taken by the next array of any thread. The setting is the process's, as the environment variable
-    ``MALLOC_ARENA_MAX=1`` would make it: arenas made before stay, and threads started later (the
-    host program's too) share the main one. A run on one thread (``PHASEGAUGE_THREADS=1``) starts
-    no thread and leaves the allocator as it is.
+    707-810 MB with no trim against 578-583 MB in one arena). Handing their free pages back after
+    every threaded part (``malloc_trim``, as was done) cost page faults when the next step took them
+    again: 1.2-1.3M over that run, 4.8-7.0 s of system time. In one arena what any thread frees is
+    taken by the next array of any thread. The setting is the process's, as ``MALLOC_ARENA_MAX=1``
+    would make it: threads started later (the host program's too) take the main arena, or one of
+    the arenas that ended threads left; where glibc had already fixed its limit (more than 8 arenas
+    made before) it changes nothing. A run on one thread (``PHASEGAUGE_THREADS=1``) starts no thread
+    and leaves the allocator as it is.
     """
-    if _one_arena.is_set():
-        return
-    _one_arena.set()
-    import ctypes
-    import platform
-
-    if platform.libc_ver()[0] != "glibc":  # (another C library's mallopt may read -8 otherwise)
-        return
-    try:
-        mallopt = getattr(ctypes.CDLL(None), "mallopt", None)  # the symbols this process has loaded
-    except (OSError, TypeError):
-        mallopt = None
-    if mallopt is not None:
+    if "MALLOC_ARENA_MAX" in os.environ or "arena_max" in os.environ.get("GLIBC_TUNABLES", ""):
+        return  # the user's own count
+    libc = _glibc()
+    mallopt = None if libc is None else getattr(libc, "mallopt", None)
+    if mallopt is not None:  # (set again by every caller before its threads: the same setting)
         mallopt(_M_ARENA_MAX, 1)
+
+
+def heap_back_to_system() -> None:
+    """Hand the free pages of the C heap back to the system, where the C library is glibc
+    (``malloc_trim(0)``); elsewhere nothing.
+
+    For a reader that allocates big arrays in mappings of their own, beside the heap (VTK's): what
+    the heap kept free from the work before would add to them at the peak (on 1M polyhedra over 5
+    steps 1016 MB above the start against 871-872 MB with the pages handed back before each read).
+    The work after takes its pages from the system again (page faults: little beside such a read).
+    """
+    libc = _glibc()
+    trim = None if libc is None else getattr(libc, "malloc_trim", None)
+    if trim is not None:
+        trim(0)
 
 
 def prepare_mesh(mesh, *, threads: int = 1, split: bool = True) -> None:
