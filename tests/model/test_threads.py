@@ -1,12 +1,11 @@
 """How many threads a process takes, and the setting that caps them."""
 
 import os
-import platform
 
 import pytest
 
 from phasegauge.errors import OptionError
-from phasegauge.model._threads import THREADS_VARIABLE, check_threads, thread_count
+from phasegauge.model._threads import THREADS_VARIABLE, _glibc, check_threads, thread_count
 
 
 def test_thread_count_shares_the_cpus_and_follows_the_variable(monkeypatch):
@@ -31,10 +30,8 @@ def test_check_threads_takes_counts():
     assert check_threads(3) == 3 and check_threads("4") == 4
 
 
-# Counts the arenas as glibc's own report lists them (malloc_info: one <heap nr=...> per arena), in a
-# fresh process: threads started by ordered_map, or by Beside alone, allocate in the main thread's
-# arena; a map on one thread leaves the allocator alone (a thread started after it gets an arena of
-# its own), and so does a process where the user set the arena count.
+# Prints the arenas glibc's own report lists (malloc_info: one <heap nr=...> per arena) before and after
+# the threads of the case named (argv[1]; argv[2]: the tests folder, for conftest's file writer).
 _ARENAS = """
 import ctypes, os, sys, tempfile, threading
 import numpy as np
@@ -67,6 +64,21 @@ if sys.argv[1] == "one":
     thread = threading.Thread(target=work, args=(8,))
     thread.start()
     thread.join()
+if sys.argv[1] in ("step1", "step2"):  # a step of "many" cells (the threshold set to 0) on 1 or 2 threads
+    sys.path.insert(0, sys.argv[2])
+    from conftest import write_listing
+    from phasegauge import measure
+    from phasegauge.meshgen import grid_mesh
+    from phasegauge.run import step
+    step.THREADED_CELLS = 0
+    mesh = grid_mesh((20, 20), kind="triangle")
+    r = np.linalg.norm(mesh.cell_centroids[:, :2] - 0.5, axis=1)
+    with tempfile.TemporaryDirectory() as folder:
+        listing = write_listing(folder, [(0.0, "d.vtu", mesh, {"c": 0.5 * (1 + np.tanh((0.25 - r) / 0.04))})])
+        measure(listing, "c", threads=int(sys.argv[1][-1]), progress=False)
+    thread = threading.Thread(target=work, args=(8,))
+    thread.start()
+    thread.join()
 if sys.argv[1] == "beside":  # another thread started while the one beside runs (no arena freed yet)
     other_done = threading.Event()
     def waiting(i):
@@ -83,16 +95,21 @@ print(*counts)
 """
 
 
-@pytest.mark.skipif(platform.libc_ver()[0] != "glibc", reason="the arenas are glibc's")
+@pytest.mark.skipif(_glibc() is None, reason="the arenas are glibc's")
 def test_threads_share_the_main_arena():
+    """Threads started by ordered_map, by Beside alone, or by a step on two threads make no arena of
+    their own; one thread, or the user's own count, leaves the allocator alone. Outside check: the
+    arenas glibc's own report lists (malloc_info), in a fresh process."""
     import subprocess
     import sys
 
     def arenas(how, **settings):
-        env = {k: v for k, v in os.environ.items() if k not in ("MALLOC_ARENA_MAX", "GLIBC_TUNABLES")}
+        env = {k: v for k, v in os.environ.items()
+               if not k.startswith("MALLOC_") and k not in ("GLIBC_TUNABLES", "LD_PRELOAD")}
         env.update(settings)
-        done = subprocess.run([sys.executable, "-c", _ARENAS, how], capture_output=True, text=True, timeout=120,
-                              env=env)
+        tests = os.path.dirname(os.path.dirname(os.path.abspath(__file__)))
+        done = subprocess.run([sys.executable, "-c", _ARENAS, how, tests], capture_output=True, text=True,
+                              timeout=120, env=env)
         assert done.returncode == 0, done.stderr
         return [int(n) for n in done.stdout.split()]
 
@@ -101,6 +118,8 @@ def test_threads_share_the_main_arena():
     assert arenas("one") == [1, 2]  # nothing set on one thread: a thread started later gets its own
     # the user's own count (here 4) is kept: the thread beside and the other get arenas of their own
     assert arenas("beside", MALLOC_ARENA_MAX="4") == [1, 3]
+    assert arenas("step2") == [1, 1]  # a step on two threads sets it
+    assert arenas("step1") == [1, 2]  # a step on one thread, however many cells: not
 
 
 def test_beside_hands_back_the_result_or_the_error():

@@ -106,7 +106,8 @@ def share_one_arena() -> None:
     would make it: threads started later (the host program's too) take the main arena, or one of
     the arenas that ended threads left; where glibc had already fixed its limit (more than 8 arenas
     made before) it changes nothing. A run on one thread (``PHASEGAUGE_THREADS=1``) starts no thread
-    and leaves the allocator as it is.
+    and leaves the allocator as it is. The user's count is read from the environment as it is when
+    called (glibc read it at the start: a variable set later, or one glibc ignored, still counts).
     """
     if "MALLOC_ARENA_MAX" in os.environ or "arena_max" in os.environ.get("GLIBC_TUNABLES", ""):
         return  # the user's own count

@@ -116,9 +116,10 @@ def measure(path, field: str | None = None, *, options: MeasureOptions | None = 
         step's planes and the widths' distance searches). Default: the CPUs this process may use (at most 8, or
         the environment variable ``PHASEGAUGE_THREADS``) shared among the local workers; one on
         a Dask cluster's workers. The tables are the same bit for bit on any number. Where the C
-        library is glibc, two or more have the process's threads allocate in the arenas it has from
-        then on (``mallopt(M_ARENA_MAX, 1)``, unless ``MALLOC_ARENA_MAX`` or ``GLIBC_TUNABLES`` set
-        the count: see :func:`phasegauge.model._threads.share_one_arena`).
+        library is glibc, a step run on two or more (a step of at least 500 000 cells) has the
+        process's threads allocate in the arenas it has from then on, making none of their own
+        (``mallopt(M_ARENA_MAX, 1)``, unless ``MALLOC_ARENA_MAX`` or ``GLIBC_TUNABLES`` set the
+        count: see :func:`phasegauge.model._threads.share_one_arena`).
     scheduler : str, optional
         Dask scheduler address, or ``'local'`` for a local Dask cluster.
     overwrite, resume : bool

@@ -183,7 +183,7 @@ def analyse_step(step, options, *, contour_dir: str | None = None, reported_mesh
     mesh = step.mesh
     if mesh.n_cells < THREADED_CELLS:  # too little work a part: threads would cost memory, save no time
         threads = 1
-    else:  # before the step's first thread (scipy's searches' too): threads take the arenas there are
+    elif threads > 1:  # before the step's first thread (scipy's searches' too): no arena of their own
         share_one_arena()
     # the first step of a mesh: its geometry and faces side by side, then the split plan
     prepare_mesh(mesh, threads=threads, split=bool({"interface", "droplets"} & set(options.analyses))
