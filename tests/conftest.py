@@ -29,11 +29,16 @@ def _reports_draw_in_one_process(monkeypatch):
     monkeypatch.setattr(_drawing, "fork_helps", lambda count: False)
 
 
-def subprocess_env():
-    """Environment for running ``python -m phasegauge`` on the source under test."""
+def subprocess_env(*, malloc_defaults: bool = False):
+    """Environment for running ``python -m phasegauge`` on the source under test; with
+    ``malloc_defaults``, without the user's settings of the C library's allocator (``MALLOC_*``,
+    ``GLIBC_TUNABLES``, ``LD_PRELOAD``)."""
     import phasegauge
 
     env = dict(os.environ)
+    if malloc_defaults:
+        env = {k: v for k, v in env.items()
+               if not k.startswith("MALLOC_") and k not in ("GLIBC_TUNABLES", "LD_PRELOAD")}
     src = os.path.dirname(os.path.dirname(os.path.abspath(phasegauge.__file__)))
     env["PYTHONPATH"] = src + os.pathsep + env.get("PYTHONPATH", "")
     env["MPLBACKEND"] = "Agg"

@@ -6,8 +6,6 @@ cell sizes from pyvista's `compute_cell_sizes` of the same files [lib]; contour 
 pyvista's `contour` filter [lib]; exact volumes and areas of a box (elementary geometry).
 """
 
-import os
-
 import numpy as np
 import pytest
 
@@ -224,9 +222,11 @@ def test_the_heap_goes_back_before_vtk_reads_a_step(tmp_path, monkeypatch):
 
     import phasegauge.io._polyhedra as polyhedra
 
-    env = {k: v for k, v in os.environ.items()  # (a mapping threshold of the user's would keep the blocks out)
-           if not k.startswith("MALLOC_") and k not in ("GLIBC_TUNABLES", "LD_PRELOAD")}
-    done = subprocess.run([sys.executable, "-c", _HEAP], capture_output=True, text=True, timeout=120, env=env)
+    from conftest import subprocess_env
+
+    # (without the user's allocator settings: a mapping threshold would keep the blocks out of the heap)
+    done = subprocess.run([sys.executable, "-c", _HEAP], capture_output=True, text=True, timeout=120,
+                          env=subprocess_env(malloc_defaults=True))
     assert done.returncode == 0, done.stderr
     before, after = (float(x) for x in done.stdout.split())
     assert before - after > 150, (before, after)

@@ -57,7 +57,6 @@ counts = [arenas()]
 assert list(ordered_map(work, range(6), threads=1)) == list(range(6))
 if sys.argv[1] == "threads":
     assert list(ordered_map(work, range(6), threads=3)) == list(range(6))
-if sys.argv[1] == "threads":
     with Beside(work, 7):
         pass
 if sys.argv[1] == "one":
@@ -104,8 +103,9 @@ def test_threads_share_the_main_arena():
     import sys
 
     def arenas(how, **settings):
-        env = {k: v for k, v in os.environ.items()
-               if not k.startswith("MALLOC_") and k not in ("GLIBC_TUNABLES", "LD_PRELOAD")}
+        from conftest import subprocess_env
+
+        env = subprocess_env(malloc_defaults=True)
         env.update(settings)
         tests = os.path.dirname(os.path.dirname(os.path.abspath(__file__)))
         done = subprocess.run([sys.executable, "-c", _ARENAS, how, tests], capture_output=True, text=True,

@@ -3,7 +3,9 @@
 numpy releases the interpreter lock inside its loops over arrays, so independent pieces of
 mesh work (the planes of a section operator, for instance) run side by side on threads of one
 process, each on its own arrays. Results come back in the order of the inputs, whatever thread
-made them, so a run's tables are the same bit for bit on any number of threads.
+made them, so a run's tables are the same bit for bit on any number of threads. Whatever starts
+threads here (the map, a thread beside, scipy's searches on threads) first has them allocate in
+the arenas the process has (:func:`share_one_arena`).
 """
 
 from __future__ import annotations

@@ -24,7 +24,7 @@ from ..model.fields import vector_field
 from ..model.indicator import make_indicator
 from ..model.outline import MeshOutline
 from ..model._overlaps import overlap_problem
-from ..model._threads import Beside, prepare_mesh, share_one_arena
+from ..model._threads import Beside, prepare_mesh
 from ._sampling import sample_step
 
 __all__ = ["StepResult", "StepRunner", "analyse_step", "run_step", "STEP_ERRORS"]
@@ -183,8 +183,6 @@ def analyse_step(step, options, *, contour_dir: str | None = None, reported_mesh
     mesh = step.mesh
     if mesh.n_cells < THREADED_CELLS:  # too little work a part: threads would cost memory, save no time
         threads = 1
-    elif threads > 1:  # before the step's first thread (scipy's searches' too): no arena of their own
-        share_one_arena()
     # the first step of a mesh: its geometry and faces side by side, then the split plan
     prepare_mesh(mesh, threads=threads, split=bool({"interface", "droplets"} & set(options.analyses))
                  or options.section_axis is not None)
