@@ -14,6 +14,9 @@ Runs, one configuration at a time in fresh child processes (the jobs of ``bench_
   same baseline;
 * ``polyhedron-band``: its ``band`` folder (a fifth of the cells, a band through the box, no
   ordinary cells: they are coned, the others read as hexahedra), ``measure`` only;
+* ``polyhedron-raw``: its ``raw`` folder (the ``polyhedron`` files with their arrays appended as
+  raw bytes, not base64 and zlib: VTK reads them about seven times faster), ``measure`` only,
+  beside the same baseline (which reads the ``polyhedron`` files);
 * ``polyhedron-split``: its ``triangulated`` folder (every face written as two triangles, so no
   cell is an ordinary one and every one is split into tetrahedra, as the ``polyhedron`` rows of
   rounds before the fourteenth and the ``polyhedron-split`` rows of the fourteenth were), ``measure``
@@ -29,7 +32,7 @@ previous round's ratio, per cell-step time and peak from ``previous_round.json``
 Usage::
 
     PYTHONPATH=src python benchmarks/bench_kinds.py [--sizes 0.25,1,4] [--steps 5]
-        [--kinds tetra,grid,hexahedron,polyhedron,polyhedron-mixed,polyhedron-band,polyhedron-split]
+        [--kinds tetra,grid,hexahedron,polyhedron,polyhedron-mixed,polyhedron-band,polyhedron-split,polyhedron-raw]
         [--skip polyhedron-split:4]
         [--json OUT]
 
@@ -54,10 +57,11 @@ import bench_measure  # noqa: E402  (the jobs and series of the per-kind benchma
 import bench_polyhedra  # noqa: E402
 
 HERE = os.path.dirname(os.path.abspath(__file__))
-KINDS = ("tetra", "grid", "hexahedron", "polyhedron", "polyhedron-mixed", "polyhedron-band", "polyhedron-split")
+KINDS = ("tetra", "grid", "hexahedron", "polyhedron", "polyhedron-mixed", "polyhedron-band", "polyhedron-split",
+         "polyhedron-raw")
 #: the folder of ``bench_polyhedra.py`` each polyhedral kind reads
 POLYHEDRAL_SERIES = {"polyhedron": "polyhedra", "polyhedron-mixed": "split", "polyhedron-band": "band",
-                     "polyhedron-split": "triangulated"}
+                     "polyhedron-split": "triangulated", "polyhedron-raw": "raw"}
 COLUMNS = ("kind", "cells", "baseline s (cpu)", "measure s (cpu)", "measure / baseline wall (cpu)",
            "first step s", "later steps s", "us per cell-step", "peak / step bytes", "peak / the file's step bytes",
            "previous: measure / baseline", "previous: us per cell-step", "previous: peak / step bytes")
@@ -77,7 +81,8 @@ def run_polyhedra(folder: str, millions: float, steps: int, kind: str = "polyhed
     """``bench_polyhedra.py``'s baseline and measure jobs on the polyhedra (``polyhedron``: hexahedra
     written as polyhedra, read as hexahedra; ``polyhedron-mixed``: one cell of another shape among them;
     ``polyhedron-band``: a fifth of them of another shape; ``polyhedron-split``: every face as two
-    triangles, so all are split); the figures of one row. The baseline runs once per size (``baselines``)."""
+    triangles, so all are split; ``polyhedron-raw``: the ``polyhedron`` files with raw appended
+    arrays); the figures of one row. The baseline runs once per size (``baselines``)."""
     info = bench_polyhedra.build(folder, millions, steps)
     series = info[POLYHEDRAL_SERIES[kind]]
     baselines = {} if baselines is None else baselines
