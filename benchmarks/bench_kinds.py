@@ -83,7 +83,7 @@ def run_polyhedra(folder: str, millions: float, steps: int, kind: str = "polyhed
     ``polyhedron-band``: a fifth of them of another shape; ``polyhedron-split``: every face as two
     triangles, so all are split; ``polyhedron-raw``: the ``polyhedron`` files with raw appended
     arrays); the figures of one row. The baseline runs once per size (``baselines``)."""
-    info = bench_polyhedra.build(folder, millions, steps)
+    info = bench_polyhedra.build(folder, millions, steps, names=("polyhedra", POLYHEDRAL_SERIES[kind]))
     series = info[POLYHEDRAL_SERIES[kind]]
     baselines = {} if baselines is None else baselines
     if millions not in baselines:

@@ -64,8 +64,9 @@ CONFIGS = ("baseline", "polyhedra", "hexahedra")
 SERIES = ("polyhedra", "hexahedra", "split", "triangulated", "band", "raw")
 
 
-def build(folder: str, millions: float, steps: int) -> dict:
-    """Write both series (or reuse them); return their description."""
+def build(folder: str, millions: float, steps: int, names=SERIES) -> dict:
+    """Write the series ``names`` (a series of an earlier build in ``folder`` is kept); return the
+    description of every series built there so far."""
     import pyvista
 
     from phasegauge.meshgen import grid_mesh, to_polyhedral_grid
@@ -78,14 +79,14 @@ def build(folder: str, millions: float, steps: int) -> dict:
         with open(info_path) as handle:
             info = json.load(handle)
         done = {name for name in SERIES if name in info}
-        if len(done) == len(SERIES):
+        if done.issuperset(names):
             return info
     mesh = grid_mesh((n, n, n), kind="hexahedron", jitter=0.2, seed=1)
     makers = {"polyhedra": to_polyhedral_grid, "split": _one_odd_cell, "triangulated": _triangulated, "band": _band,
               "raw": to_polyhedral_grid,
               "hexahedra": lambda m: pyvista.UnstructuredGrid({pyvista.CellType.HEXAHEDRON: m.blocks[0].connectivity},
                                                               m.points)}
-    for name in SERIES:
+    for name in names:
         if name in done:
             continue
         grid = makers[name](mesh)
@@ -96,7 +97,7 @@ def build(folder: str, millions: float, steps: int) -> dict:
             grid.save(path) if name != "raw" else _save_raw(grid, path)
     step_bytes = mesh.points.nbytes + sum(b.connectivity.nbytes for b in mesh.blocks) + 8 * mesh.n_points
     info = {"cells": mesh.n_cells, "points": mesh.n_points, "steps": steps, "step_bytes": step_bytes,
-            **{name: os.path.join(base, name) for name in SERIES}}
+            **{name: os.path.join(base, name) for name in SERIES if name in done or name in names}}
     with open(info_path, "w") as handle:
         json.dump(info, handle)
     return info
@@ -112,6 +113,7 @@ def _save_raw(grid, path: str) -> None:
     writer.SetDataModeToAppended()
     writer.EncodeAppendedDataOff()
     writer.SetCompressorTypeToNone()
+    writer.SetHeaderTypeToUInt64()  # one block an array: 32-bit sizes would stop at 4 GiB
     if not writer.Write():
         raise RuntimeError(f"VTK could not write {path}")
 
