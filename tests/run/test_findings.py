@@ -86,3 +86,77 @@ def test_the_widening_finding_carries_the_audit_verdict_and_ratio():
     assert flag.kind == "interface_widening"
     assert flag.text == audit["verdict"] + "; 13.7 x the physical value"
     assert flag.figures["numerical_diffusivity_stderr"] == 1.6e-4
+
+
+def _disc_series(folder, nan_at=None, shrink_at=None, steps=4, n=40):
+    """A volume-of-fluid disc (radius 0.2; each cell's volume fraction from 8 x 8 samples) on an
+    n x n square of unit side, the same every step; one NaN in a full cell at step ``nan_at``; at
+    ``shrink_at``, 1 % of the full cells emptied (rounded down). Returns the phase volume written
+    at step 0 in cells (numpy's sum of the fractions) and the number of full cells emptied."""
+    mesh = grid_mesh((n, n), kind="quad")
+    offsets = (np.arange(8) + 0.5) / 8 / n - 0.5 / n
+    xy = mesh.cell_centroids[:, :2]
+    fraction = np.zeros(mesh.n_cells)
+    for dx in offsets:
+        for dy in offsets:
+            fraction += np.hypot(xy[:, 0] + dx - 0.5, xy[:, 1] + dy - 0.5) < 0.2
+    fraction /= 64
+    full = fraction == 1.0
+    for k in range(steps):
+        c = fraction.copy()
+        inside = np.flatnonzero(full)
+        if k == nan_at:
+            c[inside[len(inside) // 2]] = np.nan
+        if k == shrink_at:
+            c[inside[:len(inside) // 100]] = 0.0
+        to_meshio(mesh, cell_data={"alpha": c}).write(os.path.join(folder, f"vof_{k}.vtu"))
+    return float(fraction.sum()), int(full.sum()) // 100
+
+
+@pytest.mark.parametrize("nan_at", [2, 0])
+def test_a_nan_cell_is_no_drift(tmp_path, nan_at):
+    # the disc does not change; one full cell is NaN at one step (at the first: the reference itself)
+    cells, _ = _disc_series(tmp_path, nan_at=nan_at)
+    with pytest.warns(Warning):  # the NaN is named
+        result = measure(str(tmp_path), "alpha", analyses=("conservation",))
+    kinds = [f.kind for f in result.findings]
+    assert "phase_volume_drift" not in kinds
+    note = result.findings[kinds.index("phase_volume_drift_nonfinite")]
+    assert note.severity == "note"
+    # analytic: one full cell of h^2 out of the disc's phase volume (numpy's sum of the fractions written,
+    # less that cell when it is the first step's)
+    reference = cells - 1 if nan_at == 0 else cells
+    assert note.figures["largest_drift"] == pytest.approx(1.0 / reference, rel=1e-9)
+    assert note.figures["largest_left_out"] == pytest.approx(1.0 / reference, rel=1e-9)
+
+
+def test_a_drift_beyond_the_nan_cells_is_still_a_drift(tmp_path):
+    cells, emptied = _disc_series(tmp_path, nan_at=1, shrink_at=3)
+    with pytest.warns(Warning):
+        result = measure(str(tmp_path), "alpha", analyses=("conservation",))
+    drift = next(f for f in result.findings if f.kind == "phase_volume_drift")
+    lost = emptied / cells  # analytic: the emptied full cells over the disc's phase volume
+    assert drift.figures["largest_drift"] == pytest.approx(lost, rel=1e-9)
+    # no cell is NaN at step 3 or at the first step: nothing of the loss lies in cells left out
+    assert drift.figures["largest_drift_beyond_left_out"] == pytest.approx(lost, rel=1e-9)
+    assert "beyond what the cells with non-finite values" in drift.text
+
+
+def test_the_cell_data_width_bias_is_no_finding_on_a_sharp_interface(tmp_path):
+    # a volume-of-fluid disc: one cell across, so its widths on rebuilt point values read far high
+    # (0.063 (h / eps)^2, measured on cell averages of the logistic profile), by design of the method
+    _disc_series(tmp_path)
+    result = measure(str(tmp_path), "alpha", analyses=("interface",))
+    assert result.audit["interface_kind"] == "sharp"
+    assert np.nanmax(result.steps["width_cell_data_bias"]) > 0.03
+    assert "width_cell_data_bias" not in [f.kind for f in result.findings]
+
+
+def test_the_cell_data_width_bias_is_a_finding_on_a_diffuse_interface():
+    import pandas as pd
+
+    steps = pd.DataFrame({"width_cell_data_bias": [0.063, 0.063]})  # h = eps: +6.3 % (README's table)
+    options = MeasureOptions(field="c")
+    for kind, expected in (("diffuse", True), ("unknown", True), ("sharp", False)):
+        found = findings(steps, pd.DataFrame(), {"interface_kind": kind}, options, [])
+        assert ("width_cell_data_bias" in [f.kind for f in found]) is expected

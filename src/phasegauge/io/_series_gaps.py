@@ -15,20 +15,31 @@ import numpy as np
 
 from ..errors import SeriesWarning
 
-__all__ = ["numbering_gaps", "output_interval", "time_gaps", "warn_series_gaps", "first_three", "INTERVAL_TOLERANCE"]
+__all__ = ["numbering_gaps", "output_interval", "time_gaps", "warn_series_gaps", "first_three", "INTERVAL_TOLERANCE",
+           "NAME_NUMBER", "name_number"]
 
 #: time steps within this fraction of each other count as the same output interval
 INTERVAL_TOLERANCE = 1e-3
+
+#: a number in a file or folder name, as names are ordered, masked and numbered: digits, with a
+#: decimal part and an exponent if they have them (solvers' time folders ``0.05`` and ``1e-05``)
+NAME_NUMBER = r"\d+(?:\.\d+)?(?:[eE][-+]?\d+)?"
+
+
+def name_number(text: str) -> int | float:
+    """The value of a number matched by :data:`NAME_NUMBER`: an int for plain digits, else a float
+    (``0.10`` and ``0.1`` are equal; ``1.10`` comes before ``1.9``, as decimals do)."""
+    return int(text) if text.isdigit() else float(text)
 
 
 def _number_of(name: str):
     """The last number in a file name and the name with it masked, or None."""
     stem = os.path.basename(name)
-    matches = list(re.finditer(r"\d+", stem))
+    matches = list(re.finditer(NAME_NUMBER, stem))
     if not matches:
         return None
     last = matches[-1]
-    return stem[:last.start()] + "#" + stem[last.end():], int(last.group())
+    return stem[:last.start()] + "#" + stem[last.end():], name_number(last.group())
 
 
 def numbering_gaps(files: list) -> list:
@@ -36,7 +47,8 @@ def numbering_gaps(files: list) -> list:
 
     Files named alike (same text around their last number) are compared; the
     usual output interval is the smallest difference between consecutive
-    numbers, and a gap is a jump of a whole multiple (two or more) of it.
+    numbers, and a gap is a jump of a whole multiple (two or more) of it (for
+    decimal numbers, ``t_0.05.vtu``, to a part in a thousand).
     A change of interval (0, 10, 20, 40, 60) reads as one gap, at the change.
     """
     groups: dict = {}
@@ -50,9 +62,12 @@ def numbering_gaps(files: list) -> list:
         if len(numbers) < 3:
             continue
         diffs = np.diff(numbers)
-        stride = int(diffs.min())
+        stride = diffs.min()
+        exact = all(isinstance(n, int) for n in numbers)
         for a, b, d in zip(numbers[:-1], numbers[1:], diffs):
-            if d >= 2 * stride and d % stride == 0:
+            ratio = d / stride
+            whole = d % stride == 0 if exact else abs(ratio - round(ratio)) <= INTERVAL_TOLERANCE * ratio
+            if ratio >= 2 - (0 if exact else INTERVAL_TOLERANCE) and whole:
                 gaps.append((a, b))
     return gaps
 
