@@ -128,3 +128,42 @@ def test_sort_by_time_without_stored_times_warns_and_keeps_the_name_order(tmp_pa
         series = Series(str(tmp_path), sort_by_time=True)
     assert [os.path.basename(s.path) for s in series.steps] == ["alpha_0.05.vtu", "alpha_0.1.vtu", "alpha_0.2.vtu"]
     assert {s.time_origin for s in series.steps} == {"index"}
+
+
+def test_the_suggested_glob_leaves_out_series_whose_names_contain_it(tmp_path):
+    # 'case_*.vtu' would match the patch files 'case_wall_*.vtu' too: the fix must not
+    for k in range(3):
+        _write_disc(str(tmp_path / f"case_{k:04d}.vtu"), 0.5)
+        _write_patch(str(tmp_path / f"case_wall_{k:04d}.vtu"))
+    with pytest.raises(SeriesError, match="2 series named differently") as caught:
+        Series(str(tmp_path))
+    suggested = os.path.join(str(tmp_path), "case_[0-9]*.vtu")
+    assert f"'{suggested}'" in caught.value.fix
+    assert [os.path.basename(s.path) for s in Series(suggested).steps] == [f"case_{k:04d}.vtu" for k in range(3)]
+
+
+def test_the_suggested_glob_escapes_the_names(tmp_path):
+    for k in range(2):
+        _write_disc(str(tmp_path / f"out[a]_{k}.vtu"), 0.5)
+        _write_patch(str(tmp_path / f"wall_{k}.vtu"))
+    with pytest.raises(SeriesError) as caught:
+        Series(str(tmp_path))
+    suggested = os.path.join(str(tmp_path), "out[[]a]_*.vtu")  # glob.escape's own form of '['
+    assert f"'{suggested}'" in caught.value.fix
+    assert len(Series(suggested).steps) == 2
+
+
+def test_dotted_frame_numbers_read_as_decimals_are_warned_of(tmp_path):
+    # frames 8 to 11 after a dot: as decimals 1.10 and 1.11 come before 1.8 (no steady interval)
+    for frame in (8, 9, 10, 11):
+        _write_disc(str(tmp_path / f"data_1.{frame}.vtu"), 0.5)
+    with pytest.warns(SeriesWarning, match=r"taken as decimals: data_1\.10\.vtu is step 0 \(as frame numbers "
+                                           r"data_1\.8\.vtu would be\)"):
+        Series(str(tmp_path))
+
+
+def test_time_folders_at_a_steady_interval_raise_no_doubt(tmp_path):
+    for t in TIMES:
+        _write_disc(str(tmp_path / t / "internal.vtu"), 0.5)
+    with _no_series_warning():
+        Series(str(tmp_path))

@@ -121,7 +121,7 @@ def test_a_nan_cell_is_no_drift(tmp_path, nan_at):
         result = measure(str(tmp_path), "alpha", analyses=("conservation",))
     kinds = [f.kind for f in result.findings]
     assert "phase_volume_drift" not in kinds
-    note = result.findings[kinds.index("phase_volume_drift_nonfinite")]
+    note = result.findings[kinds.index("phase_volume_left_out")]
     assert note.severity == "note"
     # analytic: one full cell of h^2 out of the disc's phase volume (numpy's sum of the fractions written,
     # less that cell when it is the first step's)
@@ -139,7 +139,30 @@ def test_a_drift_beyond_the_nan_cells_is_still_a_drift(tmp_path):
     assert drift.figures["largest_drift"] == pytest.approx(lost, rel=1e-9)
     # no cell is NaN at step 3 or at the first step: nothing of the loss lies in cells left out
     assert drift.figures["largest_drift_beyond_left_out"] == pytest.approx(lost, rel=1e-9)
-    assert "beyond what the cells with non-finite values" in drift.text
+    assert "beyond what the cells left out (non-finite values) could account for" in drift.text
+
+
+def test_the_left_out_cells_explain_a_change_on_their_own_side_only():
+    import pandas as pd
+
+    # with no drift, a step's phase volume V_k and the first's V_0, each short of what its left-out
+    # cells held (c in [0, 1]), differ by between -left_k and +left_0 (bounds of the integral of c)
+    options = MeasureOptions(field="c", drift_tolerance=1e-3)
+
+    def judged(volumes, left):
+        v = np.asarray(volumes, dtype=float)
+        steps = pd.DataFrame({"phase_volume": v, "phase_volume_drift": (v - v[0]) / v[0], "nonfinite_volume": left,
+                              "domain_volume": 1.0})
+        return {f.kind: f for f in findings(steps, pd.DataFrame(), {}, options, [])}
+
+    # NaN only at the first step: its cells can make a later step read higher, never lower
+    assert "phase_volume_left_out" in judged([0.25, 0.26, 0.26], [0.0125, 0, 0])
+    loss = judged([0.25, 0.24, 0.24], [0.0125, 0, 0])["phase_volume_drift"]
+    assert loss.figures["largest_drift_beyond_left_out"] == pytest.approx(0.04, rel=1e-12)
+    # NaN at a later step: a loss up to its volume is explained, a gain is not
+    assert "phase_volume_left_out" in judged([0.25, 0.24], [0, 0.0125])
+    gain = judged([0.25, 0.26], [0, 0.0125])["phase_volume_drift"]
+    assert gain.figures["largest_drift_beyond_left_out"] == pytest.approx(0.04, rel=1e-12)
 
 
 def test_the_cell_data_width_bias_is_no_finding_on_a_sharp_interface(tmp_path):

@@ -26,7 +26,6 @@ from __future__ import annotations
 import dataclasses
 import glob as globmod
 import os
-import re
 import warnings
 from dataclasses import dataclass
 
@@ -39,7 +38,8 @@ from ._formats import (TIME_NEEDS_FULL_READ, check_readable, format_for, peek_ti
 from ._mesh_pool import MeshPool
 from ._meshio_adapter import StepFields, XdmfTimeSeries, mesh_and_fields
 from ._claims import CheckedFiles, check_hdf5_claims
-from ._series_gaps import NAME_NUMBER, first_three, name_number, warn_series_gaps
+from ._series_gaps import warn_series_gaps
+from ._series_names import check_one_family, digits_masked, first_three, natural_key, warn_decimal_doubt
 from ._xdmf import grid_time, temporal_grids, xdmf_data_files
 
 __all__ = ["Series", "StepInfo", "Step", "open_series", "natural_key", "read_listing",
@@ -49,22 +49,6 @@ __all__ = ["Series", "StepInfo", "Step", "open_series", "natural_key", "read_lis
 LISTING_SUFFIXES = (".steps", ".txt", ".csv", ".list")
 
 TIME_ARRAY_NAMES = ("TimeValue", "TIME", "time", "Time")
-
-
-def natural_key(text: str):
-    """Sort key that orders embedded numbers by value in every path component.
-
-    ``step_2`` comes before ``step_10``, ``run_12/internal.vtu`` before
-    ``run_114/internal.vtu``, and the time folders ``0.05`` and ``1e-05`` are taken as the numbers
-    they are (``0.05`` before ``0.1``): each folder name and the file name are compared in turn,
-    numbers (:data:`~phasegauge.io._series_gaps.NAME_NUMBER`) as numbers, letters without case;
-    the whole text breaks ties.
-    """
-    text = os.fspath(text)
-    components = [c for c in re.split(r"[\\/]+", text) if c]
-    return [[(0, name_number(p)) if re.fullmatch(NAME_NUMBER, p) else (1, p.lower())
-             for p in re.split(f"({NAME_NUMBER})", c) if p]
-            for c in components] + [[(2, text)]]
 
 
 @dataclass(frozen=True)
@@ -140,40 +124,6 @@ def folder_listing(folder: str, files: list):
     return None
 
 
-def _digits_masked(path: str) -> str:
-    """A file's name with every number replaced by ``#``: runs of digits, with a decimal part and
-    an exponent if they have them (``c_0.5.vtu``, ``c_1.vtu`` and ``s_1.0e-01.vtu`` alike)."""
-    return re.sub(NAME_NUMBER, "#", os.path.basename(path))
-
-
-def _check_one_family(files: list, where: str) -> None:
-    """Refuse files of several series in one folder or glob: two or more name patterns (every number
-    masked, :func:`_digits_masked`) of two files or more each, such as a solver's boundary patches
-    (``wall_0001.vtu``) beside its volume files (``out_0001.vtu``). Measured in one name order they
-    would mix the meshes of the patches and the volume into one history."""
-    families: dict = {}
-    for f in files:
-        families.setdefault(_digits_masked(f), []).append(f)
-    several = {p: fs for p, fs in families.items() if len(fs) >= 2}
-    if len(several) < 2:
-        return
-    # the largest first file is most likely the volume mesh (its patches hold a layer of faces)
-    likely = max(several, key=lambda p: _size(several[p][0]))
-    shown = first_three([f"{p.replace('#', '*')} ({len(fs)} files)" for p, fs in several.items()])
-    folder = where if os.path.isdir(where) else os.path.dirname(where)
-    suggested = os.path.join(folder, likely.replace("#", "*"))
-    raise SeriesError(f"the files are {len(several)} series named differently ({shown}), such as boundary patches "
-                      "beside the volume mesh, so the steps are not clear", where=where,
-                      fix=f"give a quoted glob that picks one, such as '{suggested}', or a 'time,path' listing")
-
-
-def _size(path: str) -> int:
-    try:
-        return os.path.getsize(path)
-    except OSError:
-        return 0
-
-
 def _warn_unlisted(files: list, listing: str, rows: list) -> None:
     """Warn (:class:`SeriesWarning`, one line) of the folder's mesh files its listing does not name
     that are named as its steps are: the same text around every number (``out_7.vtu`` beside a
@@ -181,10 +131,10 @@ def _warn_unlisted(files: list, listing: str, rows: list) -> None:
     listed name holds a number). Other files beside the steps (a solver's boundary patches,
     ``wall_0000.vtu``) are no missing steps and are passed over."""
     named = {os.path.abspath(f) for _, f in rows}
-    patterns = {_digits_masked(f) for f in named}
+    patterns = {digits_masked(f) for f in named}
     numbered = any("#" in p for p in patterns)
     left = [os.path.basename(f) for f in files
-            if os.path.abspath(f) not in named and (not numbered or _digits_masked(f) in patterns)]
+            if os.path.abspath(f) not in named and (not numbered or digits_masked(f) in patterns)]
     if left:
         n = len(left)
         shown = first_three(left)
@@ -334,8 +284,9 @@ class Series:
                 self.listing_file = listing[0]
                 _warn_unlisted(files, *listing)
                 return [StepInfo(i, t, "listing", f) for i, (t, f) in enumerate(listing[1])]
-            _check_one_family(files, path)
+            check_one_family(files, path)
             steps = self._from_files(files)
+            warn_decimal_doubt(files, path, steps)
             warn_series_gaps(files, path, steps)
             return steps
         if any(ch in path for ch in "*?[") and not os.path.exists(path):
@@ -344,8 +295,9 @@ class Series:
                 raise SeriesError("the pattern matches no mesh files", where=path,
                                   fix="check the pattern; quote it so the shell does not expand it")
             self.kind = "glob"
-            _check_one_family(files, path)
+            check_one_family(files, path)
             steps = self._from_files(files)
+            warn_decimal_doubt(files, path, steps)
             warn_series_gaps(files, path, steps)
             return steps
         check_readable(path)

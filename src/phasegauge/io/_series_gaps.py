@@ -14,23 +14,12 @@ import warnings
 import numpy as np
 
 from ..errors import SeriesWarning
+from ._series_names import NAME_NUMBER, first_three, name_number
 
-__all__ = ["numbering_gaps", "output_interval", "time_gaps", "warn_series_gaps", "first_three", "INTERVAL_TOLERANCE",
-           "NAME_NUMBER", "name_number"]
+__all__ = ["numbering_gaps", "output_interval", "time_gaps", "warn_series_gaps", "INTERVAL_TOLERANCE"]
 
 #: time steps within this fraction of each other count as the same output interval
 INTERVAL_TOLERANCE = 1e-3
-
-#: a number in a file or folder name, as names are ordered, masked and numbered: digits, with a
-#: decimal part and an exponent if they have them (solvers' time folders ``0.05`` and ``1e-05``)
-NAME_NUMBER = r"\d+(?:\.\d+)?(?:[eE][-+]?\d+)?"
-
-
-def name_number(text: str) -> int | float:
-    """The value of a number matched by :data:`NAME_NUMBER`: an int for plain digits, else a float
-    (``0.10`` and ``0.1`` are equal; ``1.10`` comes before ``1.9``, as decimals do)."""
-    return int(text) if text.isdigit() else float(text)
-
 
 def _number_of(name: str):
     """The last number in a file name and the name with it masked, or None."""
@@ -108,11 +97,6 @@ def time_gaps(times) -> tuple[list, float]:
     whole = np.abs(ratio - np.round(ratio)) <= INTERVAL_TOLERANCE * np.maximum(ratio, 1.0)
     jumps = np.flatnonzero((ratio >= 2 - INTERVAL_TOLERANCE) & whole)
     return [(float(times[i]), float(times[i + 1])) for i in jumps], interval
-
-
-def first_three(texts: list) -> str:
-    """The first three of ``texts`` joined, and how many more there are (the series' warnings name files or gaps so)."""
-    return ", ".join(texts[:3]) + (f" and {len(texts) - 3} more" if len(texts) > 3 else "")
 
 
 def warn_series_gaps(files: list, where: str, steps: list) -> None:

@@ -33,8 +33,8 @@ class Finding:
     Attributes
     ----------
     kind : str
-        ``interface_widening``, ``phase_volume_drift``, ``phase_volume_drift_nonfinite`` (a change within
-        the cells left out for non-finite values: a note), ``open_boundary``,
+        ``interface_widening``, ``phase_volume_drift``, ``phase_volume_left_out`` (a change no larger than
+        what the cells left out for non-finite values could account for: a note), ``open_boundary``,
         ``indicator_overshoot``, ``bulk_plateaus`` (bulk off 0 and 1 read as physics), ``interface_under_resolved``,
         ``width_cell_data_bias``, ``free_energy_increase``, ``coarsening``,
         ``droplets_under_resolved``, ``steps_skipped``, the mixture findings
@@ -328,15 +328,16 @@ ROUNDOFF_VOLUME = 1e-9
 WIDTH_TOLERANCE = 0.03
 
 
-def _left_out_share(steps, first: float) -> np.ndarray:
-    """Per step, the volume of the cells with non-finite values there and at the first step (left out
-    of both phase volumes, c at most 1 in them) over the first step's phase volume; zeros without."""
+def _left_out_share(steps, first: float) -> tuple[np.ndarray, np.ndarray]:
+    """Per step, what the cells left out for non-finite values could hold (c at most 1 in them) over
+    the first step's phase volume: those of the step itself (a change down to minus this is no drift)
+    and those of the first step (up to plus this); zeros at the first step and without such cells."""
     if "nonfinite_volume" not in steps or not len(steps) or first <= 0:
-        return np.zeros(len(steps))
-    left = np.nan_to_num(steps["nonfinite_volume"].to_numpy(dtype=float), nan=0.0)
-    share = (left + left[0]) / first
-    share[0] = 0.0  # the first step against itself
-    return share
+        return np.zeros(len(steps)), np.zeros(len(steps))
+    left = np.nan_to_num(steps["nonfinite_volume"].to_numpy(dtype=float), nan=0.0) / first
+    below, above = left.copy(), np.full(left.size, left[0])
+    below[0] = above[0] = 0.0  # the first step against itself
+    return below, above
 
 
 def _worst(steps, column, how=np.nanmax) -> float:
@@ -375,25 +376,27 @@ def findings(steps, droplets, audit: dict, options, skipped: list, *, dimension:
         first = abs(float(steps["phase_volume"].iat[0])) if "phase_volume" in steps and len(steps) else 0.0
         floor = ROUNDOFF_VOLUME * domain / first if first > 0 else 0.0
         tolerance = max(float(options.drift_tolerance), floor)
-        # cells with NaN or Inf are left out of a step's phase volume: a change up to their volume
-        # (and the first step's) may be theirs, so only the drift beyond it is judged
-        left_out = _left_out_share(steps, first)
-        drift = np.abs(steps["phase_volume_drift"].to_numpy(dtype=float))
-        beyond = float(np.nanmax(np.maximum(drift - left_out, 0.0))) if np.isfinite(drift).any() else 0.0
+        # cells with NaN or Inf are left out of a step's phase volume: c at most 1 there, a step's
+        # change with no drift lies between minus what its own cells left out could hold and plus
+        # what the first step's could; only the drift beyond that is judged
+        drift = steps["phase_volume_drift"].to_numpy(dtype=float)
+        below, above = _left_out_share(steps, first)
+        bound = np.where(drift > 0, above, below)
+        beyond = np.maximum(np.maximum(drift - above, -drift - below), 0.0)
+        beyond = float(np.nanmax(beyond)) if np.isfinite(beyond).any() else 0.0
         if worst > tolerance and beyond <= tolerance:
-            found.append(Finding("phase_volume_drift_nonfinite", "note",
-                                 f"phase volume changes by up to {100 * worst:.3g} %, within the volume of the cells "
-                                 f"with non-finite values left out of it (up to {100 * float(left_out.max()):.3g} % "
-                                 "of the first step's phase volume): not judged as drift",
-                                 {"largest_drift": worst, "largest_left_out": float(left_out.max()),
+            found.append(Finding("phase_volume_left_out", "note",
+                                 f"phase volume changes by up to {100 * worst:.3g} %, no more than the cells left out "
+                                 f"(non-finite values) could account for (up to {100 * float(bound.max()):.3g} % of "
+                                 "the first step's phase volume): not judged as drift",
+                                 {"largest_drift": worst, "largest_left_out": float(bound.max()),
                                   "tolerance": tolerance}))
         elif worst > tolerance:
             text = (f"phase volume drifts by up to {100 * worst:.3g} % (tolerance "
                     f"{100 * tolerance:.3g} % of the first step's phase volume)")
             figures = {"largest_drift": worst, "tolerance": tolerance}
-            if left_out.any():
-                text += (f"; {100 * beyond:.3g} % beyond what the cells with non-finite values, left out of it, "
-                         "could hold")
+            if (below + above).any():
+                text += f"; {100 * beyond:.3g} % beyond what the cells left out (non-finite values) could account for"
                 figures["largest_drift_beyond_left_out"] = beyond
             if open_domain and "phase_volume_drift_closed" in steps:
                 closed = _worst(steps, "phase_volume_drift_closed")
