@@ -167,3 +167,26 @@ def test_time_folders_at_a_steady_interval_raise_no_doubt(tmp_path):
         _write_disc(str(tmp_path / t / "internal.vtu"), 0.5)
     with _no_series_warning():
         Series(str(tmp_path))
+
+
+def test_a_folder_name_with_glob_characters_is_escaped_in_the_fix(tmp_path):
+    folder = tmp_path / "run[1]"
+    for k in range(2):
+        _write_disc(str(folder / f"out_{k}.vtu"), 0.5)
+        _write_patch(str(folder / f"wall_{k}.vtu"))
+    with pytest.raises(SeriesError) as caught:
+        Series(str(folder))
+    suggested = caught.value.fix.split("'")[1]
+    assert len(Series(suggested).steps) == 2  # the fix as given works
+
+
+@pytest.mark.parametrize("layout", ["exponents", "uneven time folders"])
+def test_names_that_are_numbers_raise_no_frame_doubt(tmp_path, layout):
+    if layout == "exponents":  # no decimal point: nothing to read as frame numbers
+        for t in ("1e5", "2e5", "3e4"):
+            _write_disc(str(tmp_path / f"s_{t}.vtu"), 0.5)
+    else:  # adaptive output times, each folder named by its time alone
+        for t in ("0", "0.05", "0.1", "0.125", "0.2"):
+            _write_disc(str(tmp_path / t / "internal.vtu"), 0.5)
+    with _no_series_warning():
+        Series(str(tmp_path))

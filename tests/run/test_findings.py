@@ -183,3 +183,16 @@ def test_the_cell_data_width_bias_is_a_finding_on_a_diffuse_interface():
     for kind, expected in (("diffuse", True), ("unknown", True), ("sharp", False)):
         found = findings(steps, pd.DataFrame(), {"interface_kind": kind}, options, [])
         assert ("width_cell_data_bias" in [f.kind for f in found]) is expected
+
+
+def test_the_left_out_figure_is_taken_at_the_steps_that_changed():
+    import pandas as pd
+
+    # the 4 % gain at step 1 lies within the first step's 5 %; step 2 did not change, so its 50 %
+    # left out accounts for nothing (bounds of the integral of c, as above)
+    v = np.array([0.25, 0.26, 0.25])
+    steps = pd.DataFrame({"phase_volume": v, "phase_volume_drift": (v - v[0]) / v[0],
+                          "nonfinite_volume": [0.0125, 0.0, 0.125], "domain_volume": 1.0})
+    (note,) = findings(steps, pd.DataFrame(), {}, MeasureOptions(field="c", drift_tolerance=1e-3), [])
+    assert note.kind == "phase_volume_left_out"
+    assert note.figures["largest_left_out"] == pytest.approx(0.05, rel=1e-12)

@@ -286,8 +286,8 @@ class Series:
                 return [StepInfo(i, t, "listing", f) for i, (t, f) in enumerate(listing[1])]
             check_one_family(files, path)
             steps = self._from_files(files)
-            warn_decimal_doubt(files, path, steps)
-            warn_series_gaps(files, path, steps)
+            if not warn_decimal_doubt(files, path, steps):
+                warn_series_gaps(files, path, steps)
             return steps
         if any(ch in path for ch in "*?[") and not os.path.exists(path):
             files = sorted((f for f in globmod.glob(path) if _is_mesh_file(f)), key=natural_key)
@@ -297,8 +297,8 @@ class Series:
             self.kind = "glob"
             check_one_family(files, path)
             steps = self._from_files(files)
-            warn_decimal_doubt(files, path, steps)
-            warn_series_gaps(files, path, steps)
+            if not warn_decimal_doubt(files, path, steps):
+                warn_series_gaps(files, path, steps)
             return steps
         check_readable(path)
         if path.lower().endswith(LISTING_SUFFIXES):

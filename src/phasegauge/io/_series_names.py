@@ -49,34 +49,55 @@ def natural_key(text: str, numbers: str = NAME_NUMBER):
             for c in components] + [[(2, text)]]
 
 
-def warn_decimal_doubt(files: list, where: str, steps: list) -> None:
-    """Warn when no step stores its time, the names' numbers order differently as decimals (the order
-    taken: ``data_1.10`` before ``data_1.8``) and as runs of digits (frame numbers: after it), and the
-    decimals are not at a steady interval, as time folders (``0``, ``0.05``, ``0.1``) are."""
+def warn_decimal_doubt(files: list, where: str, steps: list) -> bool:
+    """Warn when no step stores its time, some name holds a number with a decimal point, and the
+    names read as frame numbers (runs of digits: ``data_1.8`` before ``data_1.10``) order otherwise
+    and more regularly (fewer jumps from the smallest interval) than as decimals, the order taken.
+    Step folders named by a number alone are time folders (``0``, ``0.05``, ``0.125``): no doubt
+    there. Returns whether it warned (the file-number gaps, read as decimals, are then no guide)."""
     if len(files) < 2 or any(s.time_origin != "index" for s in steps):
-        return
-    frames = sorted(files, key=lambda f: natural_key(f, numbers=r"\d+"))
-    if frames == files or _steady(files):
-        return
-    first = next(i for i, (a, b) in enumerate(zip(files, frames)) if a != b)
+        return False
+    names = _below_common(files)
+    if names is None or not any(re.search(r"\d\.\d", name) for name in names):
+        return False
+    if all(len(p) > 1 and re.fullmatch(NAME_NUMBER, p[0]) for p in (re.split(r"[\\/]+", name) for name in names)):
+        return False
+    frames = sorted(range(len(files)), key=lambda i: natural_key(files[i], numbers=r"\d+"))
+    if frames == list(range(len(files))):
+        return False
+    if _jumps([_last(name, NAME_NUMBER) for name in names]) <= _jumps([_last(names[i], r"\d+") for i in frames]):
+        return False
+    first = next(i for i, j in enumerate(frames) if i != j)
     warnings.warn(SeriesWarning(f"no step stores its time and the names hold numbers with a decimal point, taken as "
-                                f"decimals: {os.path.basename(files[first])} is step {first} (as frame numbers "
-                                f"{os.path.basename(frames[first])} would be); give a 'time,path' listing if they "
-                                "are frame numbers", where=where), stacklevel=3)
+                                f"decimals: {names[first]} is step {first} (as frame numbers {names[frames[first]]} "
+                                "would be); give a 'time,path' listing if they are frame numbers", where=where),
+                  stacklevel=3)
+    return True
 
 
-def _steady(files: list) -> bool:
-    """Whether the last number in each path (below the files' common folder) rises at one interval,
-    to a part in a thousand."""
-    common = os.path.commonpath([os.path.abspath(f) for f in files])
-    values = []
-    for f in files:
-        found = re.findall(NAME_NUMBER, os.path.relpath(os.path.abspath(f), common))
-        if not found:
-            return False
-        values.append(float(found[-1]))
-    steps = np.diff(values)
-    return len(values) >= 3 and steps.min() > 0 and steps.max() - steps.min() <= 1e-3 * steps.max()
+def _below_common(files: list):
+    """Each file's path below the common folder of two files or more, or None (none in common)."""
+    try:
+        common = os.path.commonpath([os.path.abspath(f) for f in files])
+    except ValueError:  # different drives
+        return None
+    return [os.path.relpath(os.path.abspath(f), common) for f in files]
+
+
+def _last(name: str, numbers: str) -> float:
+    """The value of the last number (``numbers``, a pattern) in ``name``, or NaN."""
+    found = re.findall(numbers, name)
+    return float(found[-1]) if found else float("nan")
+
+
+def _jumps(values: list) -> int:
+    """How many steps between consecutive ``values`` differ from the smallest rising one by more
+    than a part in a thousand (all of them when the values do not rise)."""
+    steps = np.diff(np.asarray(values, dtype=float))
+    rising = steps[steps > 0]
+    if rising.size == 0 or not np.isfinite(steps).all():
+        return steps.size
+    return int(np.count_nonzero(np.abs(steps - rising.min()) > 1e-3 * rising.min()))
 
 
 def digits_masked(path: str) -> str:
@@ -100,7 +121,8 @@ def check_one_family(files: list, where: str) -> None:
     likely = max(several, key=lambda p: _size(several[p][0]))
     shown = first_three([f"{p.replace('#', '*')} ({len(fs)} files)" for p, fs in several.items()])
     others = [os.path.basename(f) for p, fs in several.items() if p != likely for f in fs]
-    suggested = _glob_for(likely, where if os.path.isdir(where) else os.path.dirname(where), others)
+    # a folder's name is taken as it is (escaped); a glob's folder part is a pattern already
+    suggested = _glob_for(likely, globmod.escape(where) if os.path.isdir(where) else os.path.dirname(where), others)
     raise SeriesError(f"the files are {len(several)} series named differently ({shown}), such as boundary patches "
                       "beside the volume mesh or steps renamed at a restart, so the steps are not clear", where=where,
                       fix=(f"give a quoted glob that picks one, such as '{suggested}', or a 'time,path' listing"

@@ -381,7 +381,9 @@ def findings(steps, droplets, audit: dict, options, skipped: list, *, dimension:
         # what the first step's could; only the drift beyond that is judged
         drift = steps["phase_volume_drift"].to_numpy(dtype=float)
         below, above = _left_out_share(steps, first)
-        bound = np.where(drift > 0, above, below)
+        # what the cells left out could account for at the steps that changed beyond the tolerance
+        changed = np.abs(np.nan_to_num(drift)) > tolerance
+        bound = np.where(drift > 0, above, below)[changed] if changed.any() else np.zeros(1)
         beyond = np.maximum(np.maximum(drift - above, -drift - below), 0.0)
         beyond = float(np.nanmax(beyond)) if np.isfinite(beyond).any() else 0.0
         if worst > tolerance and beyond <= tolerance:
