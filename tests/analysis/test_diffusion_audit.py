@@ -99,6 +99,8 @@ def test_a_sharp_shape_deformed_without_diffusion_gives_neither():
     assert audit["interface_kind"] == "sharp" and audit["cells_across"] < SHARP_CELLS_ACROSS
     assert np.isnan(audit["D_num"]) and not audit["widening"] and not audit["significant"]
     assert "no diffusivity inferred" in audit["verdict"]
+    # a diffuse run this thin is told it is under-resolved (4 cells: common practice)
+    assert "would be under-resolved: 4 cells across 0.1 < c < 0.9 is common practice" in audit["verdict"]
 
 
 def _upwind_step(nx=64, courant=0.5, steps=64, every=8):

@@ -139,15 +139,19 @@ def test_mixing_length_interpolates():
     profile = pd.DataFrame({"position": [0.0, 1.0, 2.0, 3.0], "mixing_index": [0.2, 0.5, 0.8, 0.95],
                             "mixing_index_flow": [np.nan] * 4})
     # linear interpolation between 2.0 (0.8) and 3.0 (0.95): 2 + 0.1 / 0.15
-    assert mixing_length(profile, weighting="area") == pytest.approx(2 + 0.1 / 0.15)
-    assert mixing_length(profile, target=0.1, weighting="area") == 0.0
-    assert np.isnan(mixing_length(profile, target=0.99, weighting="area"))
+    assert mixing_length(profile, reference="section", weighting="area") == pytest.approx(2 + 0.1 / 0.15)
+    assert mixing_length(profile, target=0.1, reference="section", weighting="area") == 0.0
+    assert np.isnan(mixing_length(profile, target=0.99, reference="section", weighting="area"))
     with pytest.raises(OptionError, match="no flow-weighted mixing index"):
-        mixing_length(profile)
+        mixing_length(profile, reference="section")
     with pytest.raises(OptionError, match="weighting must be 'flow' or 'area'"):
-        mixing_length(profile, weighting="volume")
+        mixing_length(profile, reference="section", weighting="volume")
     with pytest.raises(OptionError, match=r"target mixing index must be in \(0, 1\]"):
-        mixing_length(profile, target=1.5, weighting="area")
+        mixing_length(profile, target=1.5, reference="section", weighting="area")
+    with pytest.raises(OptionError, match="no 'mixing_index_inflow'"):
+        mixing_length(profile)  # the inflow reference by default
+    with pytest.raises(OptionError, match="reference must be 'inflow' or 'section'"):
+        mixing_length(profile, reference="outlet")
 
 
 @pytest.mark.parametrize("kind,jitter", [("quad", 0.0), ("triangle", 0.2)])

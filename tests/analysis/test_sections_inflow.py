@@ -77,7 +77,7 @@ def test_no_net_flow_falls_back_to_area_weights_with_one_warning():
     assert len(ours) == 1 and "no net flow through the section at x = 0.125" in str(ours[0].message)
     assert (table["weighting"] == "area").all()
     np.testing.assert_allclose(table["mixing_index_flow"], table["mixing_index"])
-    assert np.isfinite(mixing_length(table, weighting="flow", target=0.1))
+    assert np.isfinite(mixing_length(table, reference="section", weighting="flow", target=0.1))
 
 
 def test_sections_with_no_net_flow_do_not_abort_a_run(tmp_path):
@@ -108,3 +108,22 @@ def test_inflow_is_the_first_section_along_the_flow():
     w = 6 * column * (1 - column) / 10
     m_in = float(np.sum(w * (column < 0.3)) / np.sum(w))
     assert table["inflow_mean"].iloc[0] == pytest.approx(m_in, rel=1e-12)
+
+
+def test_the_mixing_length_is_not_read_at_a_dye_front():
+    # a dye stream (c = 1, y < 0.3) reaching x = 1 only, a carrier floor of 1e-3 beyond it: no section
+    # is mixed. Against the inflow (Danckwerts 1952, by hand below) every section reads far from
+    # mixed; against its own mean the uniform carrier beyond the front reads 1, "mixed", there
+    mesh, x, y, u = _channel()
+    c = np.where((x < 1) & (y < 0.3), 1.0, 1e-3)
+    table = cross_sections(mesh, c, positions=[0.25, 0.75, 1.25, 1.75], velocity=u, c_location="cell",
+                           velocity_location="cell")
+    assert np.isnan(mixing_length(table))
+    assert 0.75 < mixing_length(table, reference="section") <= 1.25  # between the last stream and the front
+    # beyond the front, by hand: all 1e-3 against the inflow mean
+    beyond = table[table["position"] > 1]
+    column = np.full(10, 1e-3)
+    weight = 6 * (np.arange(10) + 0.5) / 10 * (1 - (np.arange(10) + 0.5) / 10)
+    expected = _danckwerts(column, weight, float(table["inflow_mean"].iat[0]))
+    np.testing.assert_allclose(beyond["segregation_intensity_inflow"], expected, rtol=1e-10)
+    assert (beyond["mixing_index_inflow"] < 0.5).all()

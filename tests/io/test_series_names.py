@@ -10,6 +10,7 @@ import os
 import meshio
 import numpy as np
 import pytest
+import pyvista
 
 import phasegauge
 from phasegauge.errors import SeriesError, SeriesWarning
@@ -190,3 +191,18 @@ def test_names_that_are_numbers_raise_no_frame_doubt(tmp_path, layout):
             _write_disc(str(tmp_path / t / "internal.vtu"), 0.5)
     with _no_series_warning():
         Series(str(tmp_path))
+
+
+def test_an_unreadable_step_is_no_missing_step(tmp_path):
+    # times stored in the files at 0.1 steps; the third file is cut short: its time is unknown, and
+    # the jump from 0.1 to 0.3 around it is that step, not a missing one
+    for k in range(5):
+        _write_disc(str(tmp_path / f"s_{k}.vtu"), 0.5)
+        grid = pyvista.read(tmp_path / f"s_{k}.vtu")  # VTK's own writer stores the time, as solvers do
+        grid.field_data["TimeValue"] = np.array([0.1 * k])
+        grid.save(tmp_path / f"s_{k}.vtu")
+    data = (tmp_path / "s_2.vtu").read_bytes()
+    (tmp_path / "s_2.vtu").write_bytes(data[: len(data) // 2])
+    with _no_series_warning():
+        series = Series(str(tmp_path))
+    assert [s.time_origin for s in series.steps] == ["file", "file", "unknown", "file", "file"]

@@ -56,7 +56,7 @@ def test_nonfinite_counted_and_kept_out():
 def test_range_warning_for_order_parameter_mapped_as_fraction():
     m = grid_mesh((2, 2))
     phi = np.linspace(-1, 1, m.n_points)
-    with pytest.warns(RangeWarning, match="--range -1,1"):
+    with pytest.warns(RangeWarning, match="--range -1,1; to compare, --range-a or --range-b for the run it is"):
         make_indicator(m, StepFields(point_data={"phi": phi}), "phi", range=(0, 1))
     with warnings.catch_warnings():
         warnings.simplefilter("error")

@@ -72,3 +72,28 @@ def test_compare_recipe_validates_and_runs(tmp_path):
     res = CliRunner().invoke(main, ["run", str(recipe), "--quiet"])
     assert res.exit_code == 0, res.output
     assert (tmp_path / "r" / "comparison.csv").exists()
+
+
+def test_a_diffuse_and_a_sharp_run_are_told_apart(tmp_path):
+    # the same disc r = 0.2: a tanh order parameter of width w = 0.05 on triangles (10-90 % thickness
+    # 2 w atanh(0.8) = 0.11, analytic, several cells) and volume fractions on quads (8 x 8 samples a cell:
+    # a step one to two cells across)
+    tri = delaunay_mesh(1500, seed=4)
+    quad = grid_mesh((40, 40))
+    offsets = (np.arange(8) + 0.5) / 320 - 1 / 80
+    for k in range(3):
+        r_t = np.hypot(tri.points[:, 0] - 0.5, tri.points[:, 1] - 0.5)
+        to_meshio(tri, point_data={"phi": np.tanh((0.2 - r_t) / 0.05)}).write(tmp_path / f"a_{k}.vtu")
+        xy = quad.cell_centroids
+        alpha = np.mean([np.hypot(xy[:, 0] + dx - 0.5, xy[:, 1] + dy - 0.5) < 0.2
+                         for dx in offsets for dy in offsets], axis=0)
+        to_meshio(quad, cell_data={"alpha": alpha}).write(tmp_path / f"b_{k}.vtu")
+    out = tmp_path / "cmp"
+    result = compare_runs(RunSpec(str(tmp_path / "a_*.vtu"), "phi", (-1, 1), label="pf"),
+                          RunSpec(str(tmp_path / "b_*.vtu"), "alpha", label="vof"), out=out)
+    manifest = json.loads((out / "manifest.json").read_text())
+    assert manifest["interface_kind"] == {"pf": "diffuse", "vof": "sharp"}
+    assert result.first.audit["cells_across"] > 3.5 > result.second.audit["cells_across"]
+    report = (out / "report.html").read_text()
+    assert "the interfaces are of different kinds (pf diffuse" in report
+    assert "interface_width" in report.split("the interfaces are of different kinds")[1]

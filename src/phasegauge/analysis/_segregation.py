@@ -153,18 +153,25 @@ def mixing_metrics(mesh: Mesh, c_cell, *, box=None) -> dict:
             "mixed_volume_fraction": mixed, "mean_indicator": mean, "region_volume": volume}
 
 
-def mixing_length(profile: pd.DataFrame, *, target: float = 0.9, weighting: str = "flow") -> float:
+def mixing_length(profile: pd.DataFrame, *, target: float = 0.9, reference: str = "inflow",
+                  weighting: str = "flow") -> float:
     """First position along a profile where the mixing index reaches ``target``.
 
     Parameters
     ----------
     profile : DataFrame
-        A table from :func:`cross_sections` (columns ``position``,
-        ``mixing_index``, ``mixing_index_flow``).
+        A table from :func:`cross_sections` (columns ``position`` and the mixing index read).
     target : float
         Mixing index to reach, in (0, 1]; 0.9 by default (common practice).
+    reference : {'inflow', 'section'}
+        ``'inflow'`` (default): ``mixing_index_inflow``, each section against the well-mixed state of
+        the whole inflow (Danckwerts 1952), with the table's own weights (its ``weighting`` column:
+        flow, or area where a section has no net flow or there is no velocity). A section of pure
+        carrier (ahead of a dye front, or outside the stream) reads unmixed. ``'section'``: each
+        section against its own mean (``mixing_index_flow`` or ``mixing_index`` by ``weighting``),
+        where a section of pure carrier reads 1, "mixed".
     weighting : {'flow', 'area'}
-        Use the flow-weighted or the area-weighted mixing index.
+        With ``reference='section'``: the flow-weighted or the area-weighted mixing index.
 
     Returns
     -------
@@ -178,20 +185,24 @@ def mixing_length(profile: pd.DataFrame, *, target: float = 0.9, weighting: str 
     Raises
     ------
     OptionError
-        Bad target or weighting, a table without the needed columns, or
-        ``weighting='flow'`` on a profile computed without velocity.
+        Bad target, reference or weighting, a table without the needed columns, or
+        ``reference='section', weighting='flow'`` on a profile computed without velocity.
     """
+    if reference not in ("inflow", "section"):
+        raise OptionError(f"reference must be 'inflow' or 'section', found {reference!r}",
+                          fix="'inflow' measures each section against the whole inflow, 'section' against its own mean")
     if weighting not in ("flow", "area"):
         raise OptionError(f"weighting must be 'flow' or 'area', found {weighting!r}",
                           fix="'flow' weighs by u.n, 'area' by the section area")
     if not (np.isfinite(target) and 0 < target <= 1):
         raise OptionError(f"target mixing index must be in (0, 1], found {target!r}", fix="for example 0.9")
-    column = "mixing_index_flow" if weighting == "flow" else "mixing_index"
+    column = ("mixing_index_inflow" if reference == "inflow" else
+              "mixing_index_flow" if weighting == "flow" else "mixing_index")
     if "position" not in profile or column not in profile:
         raise OptionError(f"the profile has no '{column}' or 'position' column",
                           fix="pass a table from cross_sections")
     table = profile[["position", column]].dropna().sort_values("position", kind="stable")
-    if weighting == "flow" and len(profile) and profile[column].isna().all():
+    if column == "mixing_index_flow" and len(profile) and profile[column].isna().all():
         raise OptionError("the profile has no flow-weighted mixing index (no velocity given, or no "
                           "net flow through the planes)",
                           fix="pass velocity to cross_sections, or use weighting='area'")

@@ -108,6 +108,17 @@ def warn_series_gaps(files: list, where: str, steps: list) -> None:
         if np.any(np.diff(known) <= 0):
             return  # times out of order: the order is reported (or sorted) instead
         gaps, interval = time_gaps(known)
+        # a jump across a step whose file could not be read is that step, not a missing one (its
+        # own error names it)
+        bridged, last, unread = set(), None, False
+        for s in steps:
+            if np.isfinite(s.time):
+                if unread and last is not None:
+                    bridged.add((float(last), float(s.time)))
+                last, unread = s.time, False
+            else:
+                unread = True
+        gaps = [g for g in gaps if g not in bridged]
         if gaps:
             shown = first_three([f"{a:g} to {b:g}" for a, b in gaps])
             warnings.warn(SeriesWarning(f"the step times jump ({shown}) against the series' most common output "

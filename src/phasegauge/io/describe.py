@@ -267,5 +267,5 @@ def format_description(desc: dict) -> str:
 
 def _origin_words(origin: str) -> str:
     words = {"xdmf": "XDMF Time", "file": "time value in each file", "listing": "step listing",
-             "index": "step index (no times stored)"}
+             "index": "step index (no times stored)", "unknown": "none where the file could not be read"}
     return " + ".join(words.get(o, o) for o in origin.split("+"))

@@ -324,7 +324,8 @@ def check_range(values: np.ndarray, value_range, *, name: str = "", where: str =
     if vmin < lo - 0.1 * span or vmax > hi + 0.1 * span:
         warnings.warn(RangeWarning(
             f"field '{name}' spans [{vmin:.4g}, {vmax:.4g}] but the range is [{lo:g}, {hi:g}]; "
-            f"give the field's own range (for example --range {_round_range(vmin, vmax)})", where=where),
+            f"give the field's own range (for example --range {_round_range(vmin, vmax)}; to compare, "
+            "--range-a or --range-b for the run it is)", where=where),
             stacklevel=3)
 
 

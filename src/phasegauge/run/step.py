@@ -224,9 +224,8 @@ def analyse_step(step, options, *, contour_dir: str | None = None, reported_mesh
                     warnings.warn(note, stacklevel=1)
             else:
                 profile = mixing.cross_sections(mesh, ind, **planes, threads=threads)
-            weighting = "flow" if u_location is not None else "area"
-            m["mixing_length"] = mixing.mixing_length(profile, target=options.mixing_target,
-                                                      weighting=weighting)
+            # against the whole inflow: a section of pure carrier (ahead of a front) is not "mixed"
+            m["mixing_length"] = mixing.mixing_length(profile, target=options.mixing_target)
             profile.insert(0, "time", step.time)
             profile.insert(0, "step", step.index)
             result.profile = profile
