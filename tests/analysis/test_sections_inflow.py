@@ -127,3 +127,29 @@ def test_the_mixing_length_is_not_read_at_a_dye_front():
     expected = _danckwerts(column, weight, float(table["inflow_mean"].iat[0]))
     np.testing.assert_allclose(beyond["segregation_intensity_inflow"], expected, rtol=1e-10)
     assert (beyond["mixing_index_inflow"] < 0.5).all()
+
+
+def test_the_mixing_length_walks_along_a_flow_towards_minus_x():
+    # the mirror image of a two-stream channel: the inflow at x = 2, the flow towards -x, mixing
+    # downstream (smaller x). The length is where the index against the inflow reaches the target
+    # walking from x = 2 down (Danckwerts 1952, the index by hand on the mirrored table)
+    mesh, x, y, u = _channel()
+    u = -u
+    spread = np.clip((2 - x) / 2, 0, 1)  # 0 at the inflow, 1 at the outlet: the streams blend
+    c = np.where(y < 0.5, 0.5 + 0.5 * (1 - spread), 0.5 - 0.5 * (1 - spread))
+    positions = [0.25, 0.75, 1.25, 1.75]
+    table = cross_sections(mesh, c, positions=positions, velocity=u, c_location="cell", velocity_location="cell")
+    index = table.set_index("position")["mixing_index_inflow"]
+    assert index[1.75] < index[1.25] < index[0.75] < index[0.25]  # mixing grows towards -x
+    target = float((index[1.25] + index[0.75]) / 2)
+    assert 0.75 < mixing_length(table, target=target) < 1.25  # between those planes, not at x = 0.25
+
+
+def test_a_first_section_of_one_phase_is_warned_of():
+    # a side inlet downstream of the first section: that section is pure carrier, its m (1 - m) = 0
+    mesh, x, y, u = _channel()
+    c = np.where((x > 0.5) & (y < 0.3), 1.0, 0.0)
+    with pytest.warns(PhasegaugeWarning, match=r"first section along the flow \(x = 0.25\) is of one phase"):
+        table = cross_sections(mesh, c, positions=[0.25, 0.75, 1.25], velocity=u, c_location="cell",
+                               velocity_location="cell")
+    assert np.isnan(mixing_length(table))

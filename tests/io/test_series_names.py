@@ -2,7 +2,9 @@
 their time (``0.05``, ``1e-05``), no time stored in the files, boundary patches beside the volume.
 
 Outside references: Python's own ``float()`` reading the names (the order of their values), the
-disc droplet's centre as written (analytic), and the files' sizes as the operating system gives them.
+disc droplet's centre as written (analytic), the files' sizes as the operating system gives them,
+``glob.escape`` and ``glob`` themselves (the suggested fixes are followed), and the times VTK's own
+writer (pyvista) stores in each file.
 """
 
 import os
@@ -206,3 +208,21 @@ def test_an_unreadable_step_is_no_missing_step(tmp_path):
     with _no_series_warning():
         series = Series(str(tmp_path))
     assert [s.time_origin for s in series.steps] == ["file", "file", "unknown", "file", "file"]
+
+
+def test_an_unreadable_step_does_not_hide_missing_ones(tmp_path):
+    # times 0, 0.1, (unreadable), 0.5, 0.6, 0.7: one file cut short cannot fill three intervals, so
+    # steps are missing between 0.1 and 0.5 (the most common interval 0.1, from the times VTK stored)
+    for k, t in enumerate((0.0, 0.1, 0.2, 0.5, 0.6, 0.7)):
+        _write_disc(str(tmp_path / f"s_{k}.vtu"), 0.5)
+        grid = pyvista.read(tmp_path / f"s_{k}.vtu")
+        grid.field_data["TimeValue"] = np.array([t])
+        grid.save(tmp_path / f"s_{k}.vtu")
+    data = (tmp_path / "s_2.vtu").read_bytes()
+    (tmp_path / "s_2.vtu").write_bytes(data[: len(data) // 2])
+    with pytest.warns(SeriesWarning, match=r"step times jump \(0\.1 to 0\.5\)"):
+        Series(str(tmp_path))
+    from phasegauge.io.describe import describe_series, format_description
+
+    text = format_description(describe_series(str(tmp_path)))
+    assert "none where the file could not be read" in text

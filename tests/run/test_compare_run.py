@@ -93,6 +93,10 @@ def test_a_diffuse_and_a_sharp_run_are_told_apart(tmp_path):
                           RunSpec(str(tmp_path / "b_*.vtu"), "alpha", label="vof"), out=out)
     manifest = json.loads((out / "manifest.json").read_text())
     assert manifest["interface_kind"] == {"pf": "diffuse", "vof": "sharp"}
+    # the tanh run: its 10-90 % thickness 0.11 over the triangles' cell size (sqrt of the mean area,
+    # numpy on the mesh) is well above the 3.5-cell cut; the volume fractions: a step of at most 2 cells
+    h = float(np.sqrt(tri.cell_measures.mean()))
+    assert 2 * 0.05 * np.arctanh(0.8) / h > 4
     assert result.first.audit["cells_across"] > 3.5 > result.second.audit["cells_across"]
     report = (out / "report.html").read_text()
     assert "the interfaces are of different kinds (pf diffuse" in report

@@ -409,6 +409,12 @@ def cross_sections_noted(mesh: Mesh, c_point_or_indicator, *, axis="x", position
         inflow_mean = table["mean_flow_weighted"].iloc[first] if u is not None else np.nan
         if not np.isfinite(inflow_mean):
             inflow_mean = table["mean_area_weighted"].iloc[first]
+        if np.isfinite(inflow_mean) and not 0 < inflow_mean < 1:
+            notes.append(PhasegaugeWarning(
+                f"the first section along the flow ({AXIS_NAMES[global_axis]} = {positions[first]:.6g}) is of one "
+                f"phase (mean c {float(inflow_mean):.3g}), so the mixing index against the inflow, and the mixing "
+                "length read from it, are undefined: put the sections downstream of every inlet "
+                "(--section-positions), or give the inflow's mean (inflow_mean in Python)"))
     table["inflow_mean"] = float(inflow_mean) if len(table) else np.nan
     table["segregation_intensity_inflow"] = [_about(*m, shift, float(inflow_mean)) for m in moments]
     with np.errstate(invalid="ignore"):

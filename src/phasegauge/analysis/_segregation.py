@@ -176,11 +176,14 @@ def mixing_length(profile: pd.DataFrame, *, target: float = 0.9, reference: str 
     Returns
     -------
     float
-        The position (mesh length units, same axis as the profile),
-        interpolated linearly between the last plane below ``target`` and the
-        first plane at or above it; the first position when that plane is
-        already mixed; NaN when no plane reaches ``target``. Subtract the
-        inlet position for a length.
+        The position (mesh length units, same axis as the profile), walking
+        along the flow (from the highest position down when the net flow runs
+        towards -axis; rising positions without a velocity), interpolated
+        linearly between the last plane below ``target`` and the first plane
+        at or above it; the first position when that plane is already mixed;
+        NaN when no plane reaches ``target`` (or, against the inflow, when the
+        first section along the flow is of one phase: see
+        :func:`cross_sections`). Subtract the inlet position for a length.
 
     Raises
     ------
@@ -201,7 +204,9 @@ def mixing_length(profile: pd.DataFrame, *, target: float = 0.9, reference: str 
     if "position" not in profile or column not in profile:
         raise OptionError(f"the profile has no '{column}' or 'position' column",
                           fix="pass a table from cross_sections")
-    table = profile[["position", column]].dropna().sort_values("position", kind="stable")
+    # along the flow: from the highest position down when it runs towards -axis (as the inflow section is taken)
+    backwards = "flow_rate" in profile and float(np.nansum(profile["flow_rate"].to_numpy(dtype=float))) < 0
+    table = profile[["position", column]].dropna().sort_values("position", ascending=not backwards, kind="stable")
     if column == "mixing_index_flow" and len(profile) and profile[column].isna().all():
         raise OptionError("the profile has no flow-weighted mixing index (no velocity given, or no "
                           "net flow through the planes)",

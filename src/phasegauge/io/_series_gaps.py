@@ -108,17 +108,17 @@ def warn_series_gaps(files: list, where: str, steps: list) -> None:
         if np.any(np.diff(known) <= 0):
             return  # times out of order: the order is reported (or sorted) instead
         gaps, interval = time_gaps(known)
-        # a jump across a step whose file could not be read is that step, not a missing one (its
-        # own error names it)
-        bridged, last, unread = set(), None, False
+        # a jump across steps whose files could not be read is those steps, not missing ones (their
+        # own errors name them), when it spans as many intervals as they fill
+        bridged, last, unread = {}, None, 0
         for s in steps:
             if np.isfinite(s.time):
                 if unread and last is not None:
-                    bridged.add((float(last), float(s.time)))
-                last, unread = s.time, False
+                    bridged[(float(last), float(s.time))] = unread
+                last, unread = s.time, 0
             else:
-                unread = True
-        gaps = [g for g in gaps if g not in bridged]
+                unread += 1
+        gaps = [g for g in gaps if round((g[1] - g[0]) / interval) - 1 > bridged.get(g, 0)]
         if gaps:
             shown = first_three([f"{a:g} to {b:g}" for a, b in gaps])
             warnings.warn(SeriesWarning(f"the step times jump ({shown}) against the series' most common output "

@@ -150,7 +150,7 @@ def _plain(options: dict) -> dict:
 METHOD_COLUMNS = ("interface_width", "interface_width_cells", "width_threshold_free", "interface_eps",
                   "width_second_moment", "interface_variance", "width_profile_median", "width_profile_p90",
                   "under_resolved_interface_fraction", "interface_cells_across", "width_cell_data_bias",
-                  "mixing_index", "segregation_intensity")
+                  "mixed_volume_fraction", "mixing_index", "segregation_intensity")
 
 
 def _kind(run) -> tuple:
