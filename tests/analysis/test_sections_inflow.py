@@ -131,18 +131,25 @@ def test_the_mixing_length_is_not_read_at_a_dye_front():
 
 def test_the_mixing_length_walks_along_a_flow_towards_minus_x():
     # the mirror image of a two-stream channel: the inflow at x = 2, the flow towards -x, mixing
-    # downstream (smaller x). The length is where the index against the inflow reaches the target
-    # walking from x = 2 down (Danckwerts 1952, the index by hand on the mirrored table)
+    # downstream (smaller x). Outside check: mirror symmetry, x -> 2 - x: the same channel flowing
+    # towards +x (field mirrored) gives its length at the mirrored position
     mesh, x, y, u = _channel()
-    u = -u
-    spread = np.clip((2 - x) / 2, 0, 1)  # 0 at the inflow, 1 at the outlet: the streams blend
-    c = np.where(y < 0.5, 0.5 + 0.5 * (1 - spread), 0.5 - 0.5 * (1 - spread))
-    positions = [0.25, 0.75, 1.25, 1.75]
-    table = cross_sections(mesh, c, positions=positions, velocity=u, c_location="cell", velocity_location="cell")
-    index = table.set_index("position")["mixing_index_inflow"]
+    positions = [0.25, 0.75, 1.25, 1.75]  # symmetric about x = 1
+
+    def field(distance_from_inflow):
+        spread = np.clip(distance_from_inflow / 2, 0, 1)  # 0 at the inflow, 1 at the outlet: the streams blend
+        return np.where(y < 0.5, 0.5 + 0.5 * (1 - spread), 0.5 - 0.5 * (1 - spread))
+
+    backward = cross_sections(mesh, field(2 - x), positions=positions, velocity=-u, c_location="cell",
+                              velocity_location="cell")
+    forward = cross_sections(mesh, field(x), positions=positions, velocity=u, c_location="cell",
+                             velocity_location="cell")
+    index = backward.set_index("position")["mixing_index_inflow"]
     assert index[1.75] < index[1.25] < index[0.75] < index[0.25]  # mixing grows towards -x
     target = float((index[1.25] + index[0.75]) / 2)
-    assert 0.75 < mixing_length(table, target=target) < 1.25  # between those planes, not at x = 0.25
+    length = mixing_length(backward, target=target)
+    assert 0.75 < length < 1.25  # between those planes, not at x = 0.25
+    assert length == pytest.approx(2 - mixing_length(forward, target=target), abs=1e-9)
 
 
 def test_a_first_section_of_one_phase_is_warned_of():
@@ -153,3 +160,24 @@ def test_a_first_section_of_one_phase_is_warned_of():
         table = cross_sections(mesh, c, positions=[0.25, 0.75, 1.25], velocity=u, c_location="cell",
                                velocity_location="cell")
     assert np.isnan(mixing_length(table))
+
+
+def test_a_first_section_of_one_phase_to_round_off_is_warned_of_too():
+    # the first section all dye: its flow-weighted mean comes out 1 - 2e-16, not 1 (round-off), which
+    # made m (1 - m) tiny and the index against it about -6.5e7 (Danckwerts' I, by hand, divides by it)
+    mesh, x, y, u = _channel(7)
+    c = np.where(x < 0.5, 1.0, np.where(y < 0.2, 1.0, 0.0))
+    with pytest.warns(PhasegaugeWarning, match="is of one phase"):
+        table = cross_sections(mesh, c, positions=[0.25, 0.75, 1.25, 1.75], velocity=u, c_location="cell",
+                               velocity_location="cell")
+    assert table["mixing_index_inflow"].isna().all() and np.isnan(mixing_length(table))
+
+
+@pytest.mark.parametrize("given", [0.0, 1.0, 1.5, -0.2])
+def test_an_inflow_mean_of_one_phase_is_refused(given):
+    from phasegauge.errors import OptionError
+
+    mesh, x, y, u = _channel()
+    with pytest.raises(OptionError, match="inflow_mean must be a number strictly between 0 and 1"):
+        cross_sections(mesh, np.where(y < 0.3, 1.0, 0.0), positions=[0.5], velocity=u, c_location="cell",
+                       velocity_location="cell", inflow_mean=given)

@@ -48,6 +48,9 @@ PROFILE_COLUMNS = ("position", "area", "mean_area_weighted", "mean_flow_weighted
 #: box leave about 1e-8 of the gross flow, velocities averaged onto points 1e-5) and recirculation
 #: more than a thousand times
 NO_FLOW_TOLERANCE = 1e-3
+#: an inflow mean within this of 0 or 1 is one phase (round-off of a uniform section): no
+#: segregation to measure the sections against
+ONE_PHASE = 1e-9
 
 
 def normalize_axis(mesh: Mesh, axis) -> tuple[int, int]:
@@ -328,8 +331,9 @@ def cross_sections_noted(mesh: Mesh, c_point_or_indicator, *, axis="x", position
     warnings would land among the caller's in no fixed order: the caller gives them where it reads
     the table. The same arguments, table and errors as :func:`cross_sections`.
     """
-    if inflow_mean is not None and not np.isfinite(inflow_mean):
-        raise OptionError(f"inflow_mean must be a finite number, found {inflow_mean!r}",
+    if inflow_mean is not None and not (np.isfinite(inflow_mean) and ONE_PHASE < inflow_mean < 1 - ONE_PHASE):
+        raise OptionError(f"inflow_mean must be a number strictly between 0 and 1, found {inflow_mean!r} (a "
+                          "mixture of one phase has no segregation to measure against)",
                           fix="give the mean of c over the inflow, or leave it out")
     planes = _Planes(mesh, c_point_or_indicator, axis, positions, count, velocity, c_location, velocity_location)
     c, c_location, u = planes.c, planes.c_location, planes.u
@@ -409,12 +413,13 @@ def cross_sections_noted(mesh: Mesh, c_point_or_indicator, *, axis="x", position
         inflow_mean = table["mean_flow_weighted"].iloc[first] if u is not None else np.nan
         if not np.isfinite(inflow_mean):
             inflow_mean = table["mean_area_weighted"].iloc[first]
-        if np.isfinite(inflow_mean) and not 0 < inflow_mean < 1:
+        if np.isfinite(inflow_mean) and not ONE_PHASE < inflow_mean < 1 - ONE_PHASE:
             notes.append(PhasegaugeWarning(
                 f"the first section along the flow ({AXIS_NAMES[global_axis]} = {positions[first]:.6g}) is of one "
                 f"phase (mean c {float(inflow_mean):.3g}), so the mixing index against the inflow, and the mixing "
                 "length read from it, are undefined: put the sections downstream of every inlet "
                 "(--section-positions), or give the inflow's mean (inflow_mean in Python)"))
+            inflow_mean = np.nan  # within round-off of one phase: no index against it, not a huge one
     table["inflow_mean"] = float(inflow_mean) if len(table) else np.nan
     table["segregation_intensity_inflow"] = [_about(*m, shift, float(inflow_mean)) for m in moments]
     with np.errstate(invalid="ignore"):
