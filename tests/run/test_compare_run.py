@@ -9,6 +9,7 @@ from click.testing import CliRunner
 from phasegauge.cli import main
 from phasegauge.run.compare import RunSpec, compare_runs
 from phasegauge.meshgen import delaunay_mesh, grid_mesh, to_meshio
+from phasegauge.samples import circle_fraction
 
 
 def _disc_runs(tmp_path):
@@ -80,13 +81,11 @@ def test_a_diffuse_and_a_sharp_run_are_told_apart(tmp_path):
     # a step one to two cells across)
     tri = delaunay_mesh(1500, seed=4)
     quad = grid_mesh((40, 40))
-    offsets = (np.arange(8) + 0.5) / 320 - 1 / 80
     for k in range(3):
         r_t = np.hypot(tri.points[:, 0] - 0.5, tri.points[:, 1] - 0.5)
         to_meshio(tri, point_data={"phi": np.tanh((0.2 - r_t) / 0.05)}).write(tmp_path / f"a_{k}.vtu")
-        xy = quad.cell_centroids
-        alpha = np.mean([np.hypot(xy[:, 0] + dx - 0.5, xy[:, 1] + dy - 0.5) < 0.2
-                         for dx in offsets for dy in offsets], axis=0)
+        ij = np.minimum((quad.cell_centroids[:, :2] * 40).astype(int), 39)  # the grid's cell of each
+        alpha = circle_fraction(40, (0.5, 0.5), 0.2)[ij[:, 0], ij[:, 1]]
         to_meshio(quad, cell_data={"alpha": alpha}).write(tmp_path / f"b_{k}.vtu")
     out = tmp_path / "cmp"
     result = compare_runs(RunSpec(str(tmp_path / "a_*.vtu"), "phi", (-1, 1), label="pf"),

@@ -9,6 +9,7 @@ from phasegauge import measure
 from phasegauge.meshgen import grid_mesh, to_meshio
 from phasegauge.run.assemble import Finding, findings
 from phasegauge.run.options import MeasureOptions
+from phasegauge.samples import circle_fraction
 
 
 def test_flags_are_the_texts_of_the_findings(tmp_path):
@@ -88,19 +89,19 @@ def test_the_widening_finding_carries_the_audit_verdict_and_ratio():
     assert flag.figures["numerical_diffusivity_stderr"] == 1.6e-4
 
 
+def _grid_values(mesh, table, n):
+    """Values of an (n, n) table indexed [column along x, row along y] on the cells of an n x n unit grid."""
+    ij = np.minimum((mesh.cell_centroids[:, :2] * n).astype(int), n - 1)
+    return table[ij[:, 0], ij[:, 1]]
+
+
 def _disc_series(folder, nan_at=None, shrink_at=None, steps=4, n=40):
     """A volume-of-fluid disc (radius 0.2; each cell's volume fraction from 8 x 8 samples) on an
     n x n square of unit side, the same every step; one NaN in a full cell at step ``nan_at``; at
     ``shrink_at``, 1 % of the full cells emptied (rounded down). Returns the phase volume written
     at step 0 in cells (numpy's sum of the fractions) and the number of full cells emptied."""
     mesh = grid_mesh((n, n), kind="quad")
-    offsets = (np.arange(8) + 0.5) / 8 / n - 0.5 / n
-    xy = mesh.cell_centroids[:, :2]
-    fraction = np.zeros(mesh.n_cells)
-    for dx in offsets:
-        for dy in offsets:
-            fraction += np.hypot(xy[:, 0] + dx - 0.5, xy[:, 1] + dy - 0.5) < 0.2
-    fraction /= 64
+    fraction = _grid_values(mesh, circle_fraction(n, (0.5, 0.5), 0.2), n)
     full = fraction == 1.0
     for k in range(steps):
         c = fraction.copy()

@@ -14,12 +14,10 @@ import warnings
 import numpy as np
 
 from ..errors import SeriesWarning
-from ._series_names import NAME_NUMBER, first_three, name_number
+from ._series_names import INTERVAL_TOLERANCE, NAME_NUMBER, first_three, name_number
 
 __all__ = ["numbering_gaps", "output_interval", "time_gaps", "warn_series_gaps", "INTERVAL_TOLERANCE"]
 
-#: time steps within this fraction of each other count as the same output interval
-INTERVAL_TOLERANCE = 1e-3
 
 def _number_of(name: str):
     """The last number in a file name and the name with it masked, or None."""

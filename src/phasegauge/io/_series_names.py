@@ -18,12 +18,15 @@ import numpy as np
 
 from ..errors import SeriesError, SeriesWarning
 
-__all__ = ["NAME_NUMBER", "name_number", "natural_key", "digits_masked", "check_one_family", "warn_decimal_doubt",
+__all__ = ["NAME_NUMBER", "INTERVAL_TOLERANCE", "name_number", "natural_key", "digits_masked", "check_one_family", "warn_decimal_doubt",
            "first_three"]
 
 #: a number in a file or folder name, as names are ordered, masked and numbered: digits, with a
 #: decimal part and an exponent if they have them (solvers' time folders ``0.05`` and ``1e-05``)
 NAME_NUMBER = r"\d+(?:\.\d+)?(?:[eE][-+]?\d+)?"
+
+#: time steps (and numbers in names) within this fraction of each other count as the same interval
+INTERVAL_TOLERANCE = 1e-3
 
 
 def name_number(text: str) -> int | float:
@@ -92,12 +95,12 @@ def _last(name: str, numbers: str) -> float:
 
 def _jumps(values: list) -> int:
     """How many steps between consecutive ``values`` differ from the smallest rising one by more
-    than a part in a thousand (all of them when the values do not rise)."""
+    than :data:`INTERVAL_TOLERANCE` of it (all of them when the values do not rise)."""
     steps = np.diff(np.asarray(values, dtype=float))
     rising = steps[steps > 0]
     if rising.size == 0 or not np.isfinite(steps).all():
         return steps.size
-    return int(np.count_nonzero(np.abs(steps - rising.min()) > 1e-3 * rising.min()))
+    return int(np.count_nonzero(np.abs(steps - rising.min()) > INTERVAL_TOLERANCE * rising.min()))
 
 
 def digits_masked(path: str) -> str:
