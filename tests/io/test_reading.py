@@ -102,6 +102,49 @@ def test_xdmf_time_series_static_mesh(tmp_path, monkeypatch):
     assert float(steps[2].fields.point_data["phi"][0]) == 0.5
 
 
+def _collection(folder, name, times):
+    """An XDMF time collection written by meshio's TimeSeriesWriter (the outside writer), HDF5 beside it."""
+    m = grid_mesh((3, 3), kind="triangle")
+    old = os.getcwd()
+    os.chdir(folder)  # the writer puts the HDF5 file in the working folder
+    try:
+        with meshio.xdmf.TimeSeriesWriter(name) as w:
+            w.write_points_cells(m.points, [(b.cell_type, b.connectivity) for b in m.blocks])
+            for t in times:
+                w.write_data(t, point_data={"phi": np.full(m.n_points, t)})
+    finally:
+        os.chdir(old)
+    return folder / name
+
+
+def test_folder_of_one_xdmf_collection_reads_its_steps(tmp_path):
+    # a solver's output folder holding one time collection (and its HDF5 file) was read as one
+    # file of one grid and refused by meshio; the steps are the collection's, as for its file
+    path = _collection(tmp_path, "run.xdmf", (0.0, 0.25, 0.5))
+    for given in (tmp_path, tmp_path / "*.xdmf"):
+        s = Series(str(given))
+        assert s.kind == "collection" and list(s.times) == [0.0, 0.25, 0.5] and s.files == [str(path)]
+        assert float(s.read(2).fields.point_data["phi"][0]) == 0.5  # meshio wrote 0.5 at t = 0.5
+    from phasegauge.io._inputs import input_files
+    names = {os.path.basename(r["path"]) for r in input_files(Series(str(tmp_path)))}
+    assert names == {"run.xdmf", "run.h5"}  # the manifest's inputs name the HDF5 data too
+
+
+def test_folder_of_several_collections_or_beside_step_files_refused(tmp_path):
+    # two collections (say a restart's second file) or a collection beside step files: which steps
+    # are meant is not clear, and reading each file as one step would be wrong
+    a, b = tmp_path / "a", tmp_path / "b"
+    a.mkdir(), b.mkdir()
+    _collection(a, "run_0.xdmf", (0.0, 0.1))
+    _collection(a, "run_1.xdmf", (0.2, 0.3))
+    with pytest.raises(SeriesError, match=r"2 XDMF time collections \(run_0.xdmf \(2 steps\), run_1.xdmf"):
+        Series(str(a))
+    _collection(b, "run.xdmf", (0.0, 0.1))
+    _write(str(b / "extra.vtu"), grid_mesh((3, 3), kind="triangle"), {"phi": np.zeros(16)})
+    with pytest.raises(SeriesError, match="1 XDMF time collection .*beside 1 other mesh file.*give one collection"):
+        Series(str(b))
+
+
 def test_xdmf_time_series_with_changing_mesh(tmp_path):
     # each temporal grid carries its own mesh: every grid is read with its own mesh
     import h5py

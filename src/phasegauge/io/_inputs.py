@@ -47,8 +47,8 @@ def input_files(series, known_sha256: dict | None = None) -> list:
         files.append(f)
         if f.lower().endswith(".vtm"):
             files += multiblock_data_files(f)
-    if series.kind == "collection":
-        files += xdmf_data_files(series.path)
+    if series.kind == "collection":  # given as the collection's file or as a folder holding only it
+        files += xdmf_data_files(series.files[0])
     if series.kind == "listing":
         files = [series.path] + files
     out, seen = [], set()

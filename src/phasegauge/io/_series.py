@@ -40,7 +40,7 @@ from ._meshio_adapter import StepFields, XdmfTimeSeries, mesh_and_fields
 from ._claims import CheckedFiles, check_hdf5_claims
 from ._series_gaps import warn_series_gaps
 from ._series_names import check_one_family, digits_masked, first_three, natural_key, warn_decimal_doubt
-from ._xdmf import grid_time, temporal_grids, xdmf_data_files
+from ._xdmf import grid_time, lone_collection, temporal_grids, xdmf_data_files
 
 __all__ = ["Series", "StepInfo", "Step", "open_series", "natural_key", "read_listing",
            "LISTING_SUFFIXES"]
@@ -267,6 +267,9 @@ class Series:
         if os.path.isdir(path):
             files = sorted((os.path.join(path, f) for f in os.listdir(path) if _is_mesh_file(os.path.join(path, f))),
                            key=natural_key)
+            collection = lone_collection(files, path)
+            if collection is not None:  # a folder of one XDMF time collection (and its HDF5 files)
+                return self._collection_steps(collection, temporal_grids(collection))
             if not files:
                 files = step_folder_files(path)
             if not files:
@@ -294,6 +297,9 @@ class Series:
             if not files:
                 raise SeriesError("the pattern matches no mesh files", where=path,
                                   fix="check the pattern; quote it so the shell does not expand it")
+            collection = lone_collection(files, path)
+            if collection is not None:
+                return self._collection_steps(collection, temporal_grids(collection))
             self.kind = "glob"
             check_one_family(files, path)
             steps = self._from_files(files)
@@ -314,18 +320,7 @@ class Series:
         if path.lower().endswith((".xdmf", ".xmf")):
             grids = temporal_grids(path)
             if grids is not None:
-                self.kind = "collection"
-                steps = []
-                for i, grid in enumerate(grids):
-                    t = grid_time(grid, where=f"{path}, step {i}")
-                    if t is not None:
-                        steps.append(StepInfo(i, t, "xdmf", path, grid=i))
-                    else:
-                        steps.append(StepInfo(i, float(i), "index", path, grid=i))
-                if not steps:
-                    raise SeriesError("the XDMF time collection is empty", where=path,
-                                      fix="write at least one step")
-                return steps
+                return self._collection_steps(path, grids)
         if not _is_mesh_file(path):
             surface = surface_file_problem(path)
             if surface is not None:
@@ -336,6 +331,20 @@ class Series:
                 fix="give a mesh file, a folder, a quoted glob or a 'time,path' listing")
         self.kind = "file"
         return self._from_files([path])
+
+    def _collection_steps(self, path: str, grids: list) -> list[StepInfo]:
+        """The steps of the XDMF temporal collection in file ``path`` (its grids)."""
+        self.kind = "collection"
+        steps = []
+        for i, grid in enumerate(grids):
+            t = grid_time(grid, where=f"{path}, step {i}")
+            if t is not None:
+                steps.append(StepInfo(i, t, "xdmf", path, grid=i))
+            else:
+                steps.append(StepInfo(i, float(i), "index", path, grid=i))
+        if not steps:
+            raise SeriesError("the XDMF time collection is empty", where=path, fix="write at least one step")
+        return steps
 
     def _from_files(self, files: list[str]) -> list[StepInfo]:
         steps = []

@@ -11,11 +11,11 @@ import os
 import re
 import xml.etree.ElementTree as ET
 
-from ..errors import UnreadableFileError
+from ..errors import SeriesError, UnreadableFileError
 from ._formats import register_format, stored_time
 from ._meshio_adapter import read_with_meshio
 
-__all__ = ["FORMATS", "temporal_grids", "grid_time", "xdmf_data_files", "data_file_names"]
+__all__ = ["FORMATS", "temporal_grids", "lone_collection", "grid_time", "xdmf_data_files", "data_file_names"]
 
 #: an HDF5 reference in a DataItem: ``file.h5:/path``
 _HDF5_REFERENCE = re.compile(r">\s*([^<>:\s]+\.(?:h5|hdf5|hdf))\s*:")
@@ -38,6 +38,33 @@ def temporal_grids(path: str):
         if grid.get("GridType") == "Collection" and grid.get("CollectionType") == "Temporal":
             return [g for g in grid if g.tag == "Grid"]
     return None
+
+
+def lone_collection(files: list, where: str):
+    """The file of an XDMF temporal collection when it is the only mesh file of a folder or a glob's
+    files, else None; refused beside other mesh files (several collections, or a collection and step
+    files), whose steps would not be clear. A file that does not parse is no collection here: reading
+    it as a step says what is wrong with it."""
+    collections = []
+    for f in files:
+        if f.lower().endswith((".xdmf", ".xmf")):
+            try:
+                grids = temporal_grids(f)
+            except UnreadableFileError:
+                continue
+            if grids is not None:
+                collections.append((f, len(grids)))
+    if not collections:
+        return None
+    if len(files) == 1:
+        return collections[0][0]
+    named = ", ".join(f"{os.path.basename(f)} ({n} steps)" for f, n in collections[:3])
+    more = f" and {len(collections) - 3} more" if len(collections) > 3 else ""
+    others = len(files) - len(collections)
+    beside = f" beside {others} other mesh file{'s' if others != 1 else ''}" if others else ""
+    raise SeriesError(f"the files hold {len(collections)} XDMF time collection{'s' if len(collections) > 1 else ''} "
+                      f"({named}{more}){beside}, so the steps are not clear", where=where,
+                      fix=f"give one collection's file, such as {collections[0][0]}")
 
 
 def grid_time(grid, where: str = "") -> float | None:
