@@ -292,3 +292,20 @@ def test_section_corners_in_the_order_of_a_stable_argsort(k):
     assert np.array_equal(slots, order)  # the corner each came from: the stable argsort itself
     assert np.array_equal(_section_planes._placed(rank, [nodes[:, j] for j in range(k)]),
                           np.take_along_axis(nodes, order, axis=1))
+
+
+@pytest.mark.parametrize("n, distinct", [(1, 1), (5000, 900), (30000, 29000), (30000, 3)])
+def test_cut_edges_numbered_as_numpy_unique_orders_first_uses(n, distinct):
+    # the cut edges (pairs of nodes) numbered in the order of their first use, and the place of each
+    # first use, against numpy's unique (return_index: first occurrences) re-ranked by those places
+    rng = np.random.default_rng(n + distinct)
+    pairs = rng.integers(0, 10 ** 6, (distinct, 2))
+    used = pairs[rng.integers(0, distinct, n)]
+    used[:distinct] = pairs[rng.permutation(distinct)][:n]  # every edge used (when n allows)
+    start, end = used[:, 0].reshape(-1, 1), used[:, 1].reshape(-1, 1)
+    cut, first = _section_planes._cut_edges(start, end)
+    _, first_np, inverse = np.unique(used, axis=0, return_index=True, return_inverse=True)
+    rank = np.empty(first_np.size, dtype=np.int64)
+    rank[np.argsort(first_np)] = np.arange(first_np.size)
+    assert np.array_equal(first, np.sort(first_np))
+    assert np.array_equal(cut, rank[inverse.ravel()])
