@@ -16,7 +16,22 @@ from dataclasses import dataclass, replace
 
 import numpy as np
 
-__all__ = ["MeshOutline"]
+__all__ = ["MeshOutline", "DOMAIN_TOLERANCE"]
+
+#: a domain's box, volume or centroid moving by more than this share (of its longest side, or of
+#: its volume) between meshes is a different domain (:meth:`MeshOutline.domain_change`): far
+#: above what remeshing the same domain moves (a boundary's facets, about a cell), far below
+#: what splitting it in pieces moves (a share of the domain)
+DOMAIN_TOLERANCE = 0.05
+
+
+def _domain(mesh) -> tuple:
+    """The domain's volume (area in 2D) and centroid (as :attr:`Mesh.cell_centroids` gives them) of ``mesh``."""
+    w = mesh.cell_measures
+    total = float(w.sum())
+    if not total > 0:
+        return float("nan"), None
+    return total, w @ mesh.cell_centroids / total
 
 
 @dataclass(frozen=True, eq=False)
@@ -46,17 +61,49 @@ class MeshOutline:
     bounds: np.ndarray
     cell_centroids: np.ndarray | None = None
     cell_parents: np.ndarray | None = None
+    measure: float = float("nan")  # the domain's volume (area in 2D): the cells' measures summed
+    centre: np.ndarray | None = None  # the domain's centroid (cells' centroids weighted by measure)
 
     @classmethod
     def of(cls, mesh, *, centroids: bool = False) -> "MeshOutline":
         """The outline of ``mesh``; with ``centroids``, one object per mesh (kept with ``mesh.memo``)."""
+        measure, centre = mesh.memo("domain_extent", lambda: _domain(mesh))
         if centroids:
             from ._centroids import whole_cell_centroids
 
             return mesh.memo("outline_with_centroids", lambda: cls(
                 mesh.signature, int(mesh.n_cells), int(mesh.dimension), tuple(mesh.plane_axes),
-                mesh.bounds, whole_cell_centroids(mesh), mesh.cell_parents))
-        return cls(mesh.signature, int(mesh.n_cells), int(mesh.dimension), tuple(mesh.plane_axes), mesh.bounds)
+                mesh.bounds, whole_cell_centroids(mesh), mesh.cell_parents, measure, centre))
+        return cls(mesh.signature, int(mesh.n_cells), int(mesh.dimension), tuple(mesh.plane_axes), mesh.bounds,
+                   measure=measure, centre=centre)
+
+    def domain_change(self, other: "MeshOutline") -> str | None:
+        """How the domain of ``other`` differs from this one's, in words, or None (the same domain).
+
+        The domain is taken as its bounding box, its volume (area in 2D) and its centroid; any of
+        them moving by more than :data:`DOMAIN_TOLERANCE` (of the larger box's longest side, or of
+        the larger volume) is a change. A mesh refined or remeshed over the same domain moves none
+        of them that far; the pieces of a domain decomposition (a parallel run's files of one step)
+        differ in at least one.
+        """
+        if (other.signature == self.signature or self.centre is None or other.centre is None
+                or other.centre.shape != self.centre.shape):
+            return None
+        size = float(max((self.bounds[1] - self.bounds[0]).max(), (other.bounds[1] - other.bounds[0]).max()))
+        if size <= 0 or not (np.isfinite(self.measure) and np.isfinite(other.measure)):
+            return None
+        moved = np.abs(other.bounds - self.bounds)
+        if moved.max() > DOMAIN_TOLERANCE * size:
+            side, axis = np.unravel_index(int(np.argmax(moved)), moved.shape)
+            name = "xyz"[axis]
+            return (f"{name} from [{self.bounds[0, axis]:.6g}, {self.bounds[1, axis]:.6g}] to "
+                    f"[{other.bounds[0, axis]:.6g}, {other.bounds[1, axis]:.6g}]")
+        if abs(other.measure - self.measure) > DOMAIN_TOLERANCE * max(self.measure, other.measure):
+            return f"its {'volume' if self.dimension == 3 else 'area'} from {self.measure:.6g} to {other.measure:.6g}"
+        shift = float(np.linalg.norm(other.centre - self.centre))
+        if shift > DOMAIN_TOLERANCE * size:
+            return f"its centroid by {shift:.3g} ({shift / size:.0%} of its size)"
+        return None
 
     @property
     def has_centroids(self) -> bool:

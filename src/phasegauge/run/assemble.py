@@ -56,6 +56,26 @@ class Finding:
 
 
 # ------------------------------------------------------------------ tracking, in step order
+def domain_refusal(before, after) -> SeriesError | None:
+    """The error when analysed steps ``before`` and ``after`` (results, in order) cover different
+    domains (:meth:`MeshOutline.domain_change`), else None.
+
+    The files of a parallel run's pieces (``processor1/out_0001.vtu``, ``out_0001_1.vtu``) are named
+    like steps, and measured so each piece was a step: half the phase volume, droplets jumping
+    between pieces, a drift; their meshes differ as a remeshed run's do, so that alone says nothing.
+    """
+    if before.outline is None or after.outline is None:
+        return None
+    change = before.outline.domain_change(after.outline)
+    if change is None:
+        return None
+    return SeriesError(f"the domain changes between step {before.index} and step {after.index} ({change}), so the "
+                       "files look like pieces of a parallel run (a domain decomposition), not steps of one domain",
+                       where=f"{after.path}, step {after.index}",
+                       fix="give one file a step: join each step's pieces into one file or a .vtm multiblock file "
+                           "(a domain that truly moves between outputs is not measured as one series)")
+
+
 class TrackingFeed:
     """Droplet tracking fed with the step results in step order, while they arrive in any order.
 
@@ -90,6 +110,7 @@ class TrackingFeed:
         self._last = None  # outline of the step linked last (the next one usually shares it)
         self._dimension = None
         self._cache = cache
+        self._previous = None  # the analysed step linked last, of the first analysed step's dimension
 
     def add(self, result, *, link: bool = True) -> None:
         """Take one step's result; with ``link``, link every step that is now next in order.
@@ -154,6 +175,7 @@ class TrackingFeed:
         """Link every step that is next in order and has its outline (the tracking work)."""
         while self._position < len(self._order) and self._order[self._position] in self._waiting:
             result = self._waiting[self._order[self._position]]
+            self._check_domain(result)
             if self.tracking and result.skipped is None:
                 if self._dimension is None:
                     self._dimension = result.dimension
@@ -173,6 +195,20 @@ class TrackingFeed:
         needed = {r.outline.signature for r in self._waiting.values() if r.outline is not None}
         for signature in [s for s in self._outlines if s not in needed]:
             del self._outlines[signature]
+
+    def _check_domain(self, result) -> None:
+        """Refuse a step whose domain is not the previous analysed step's (:func:`domain_refusal`):
+        as the steps are linked in order, so a run of pieces stops at the first."""
+        if result.skipped is not None:
+            return
+        before = self._previous
+        if before is not None and before.dimension != result.dimension:
+            return  # skipped by the series level (a dimension of its own)
+        if before is not None:
+            error = domain_refusal(before, result)
+            if error is not None:
+                raise error
+        self._previous = result
 
     def tables(self):
         """``(droplets, events)`` of the tracked steps.
