@@ -17,11 +17,13 @@ from dataclasses import dataclass
 from types import MappingProxyType
 from typing import Callable
 
+import numpy as np
+
 from ..errors import InputFileNotFound, PhasegaugeError, SeriesError, UnreadableFileError, short_text
 from ._claims import CheckedFiles, check_hdf5_claims
 
 __all__ = ["FileFormat", "register_format", "formats", "format_for", "mesh_suffixes", "read_mesh_file",
-           "peek_time", "TIME_NEEDS_FULL_READ", "check_readable", "stored_time",
+           "peek_time", "TIME_NEEDS_FULL_READ", "check_readable", "stored_time", "StoredTime",
            "surface_file_problem", "SURFACE_SUFFIXES"]
 
 #: the modules that declare formats, in the order their suffixes are listed
@@ -193,6 +195,14 @@ def check_readable(path: str, where: str = "") -> None:
                                   fix=f"grant read permission (chmod u+r {os.path.basename(path)}) or run as its owner")
 
 
+class StoredTime(float):
+    """A step time as a float, with ``resolution``: the gap to the next value its storage holds
+    (single precision's spacing at the time; 0 for double precision and for text, whose digits
+    are taken as written)."""
+
+    resolution: float = 0.0
+
+
 def stored_time(value, *, where: str, source: str, fix: str = "") -> float:
     """A step time as stored (text or a number) as a float; single precision rounded to its own digits.
 
@@ -223,7 +233,10 @@ def stored_time(value, *, where: str, source: str, fix: str = "") -> float:
         raise SeriesError(f"the time {source} {found}", where=where,
                           fix=fix or "write the step's time as a number, or give a 'time,path' listing "
                                      "whose times are used instead")
-    return time
+    out = StoredTime(time)
+    if getattr(value, "dtype", None) is not None and value.dtype.kind == "f" and value.dtype.itemsize < 8:
+        out.resolution = float(np.spacing(abs(value)))
+    return out
 
 
 def peek_time(path: str):

@@ -38,7 +38,7 @@ from ._formats import (TIME_NEEDS_FULL_READ, check_readable, format_for, peek_ti
 from ._mesh_pool import MeshPool
 from ._meshio_adapter import StepFields, XdmfTimeSeries, mesh_and_fields
 from ._claims import CheckedFiles, check_hdf5_claims
-from ._series_gaps import warn_series_gaps
+from ._series_gaps import two_times, warn_series_gaps, warn_time_resolution
 from ._series_names import check_one_family, digits_masked, first_three, natural_key, warn_decimal_doubt
 from ._xdmf import grid_time, lone_collection, temporal_grids, xdmf_data_files
 
@@ -71,6 +71,9 @@ class StepInfo:
     name : str
         How messages name the file: its base name, or its path from the series'
         folder when steps share a base name (``run_114/internal.vtu``).
+    time_resolution : float
+        The gap to the next time the file's storage of it holds: single precision's spacing at
+        the time; 0 for double precision, text and times not stored in the file.
     """
 
     index: int
@@ -79,6 +82,7 @@ class StepInfo:
     path: str
     grid: int | None = None
     name: str = ""
+    time_resolution: float = 0.0
 
     @property
     def where(self) -> str:
@@ -365,7 +369,9 @@ class Series:
             if t is None:
                 steps.append(StepInfo(i, float(i), "index", f, name=names[i]))
             else:
-                steps.append(StepInfo(i, float(t), "file", f, name=names[i]))
+                steps.append(StepInfo(i, float(t), "file", f, name=names[i],
+                                      time_resolution=getattr(t, "resolution", 0.0)))
+        warn_time_resolution(steps, self.path)
         return steps
 
     # ------------------------------------------------------------------ access
@@ -393,15 +399,21 @@ class Series:
                     fix = f"correct the times in {os.path.basename(self.path)} or remove the repeated step"
                 elif self.kind == "collection":
                     fix = "remove the repeated or out-of-order grids (a restart may have written them twice)"
+                elif abs(after.time - before.time) < max(before.time_resolution, after.time_resolution):
+                    fix = (f"the files store the times in single precision, which tells times near {after.time:.8g} "
+                           f"apart only to {after.time_resolution:.2g}: write them in double precision, or give a "
+                           "'time,path' listing")
                 elif after.time == before.time:
-                    fix = ("remove the repeated step (a restart may have written it twice), "
+                    fix = ("remove the repeated step (a restart may have written it twice; if the files are pieces "
+                           "of one step of a parallel run, join them into one file or a .vtm multiblock file), "
                            "or give a 'time,path' listing")
                 else:
                     fix = ("rename the files so their names sort like their times, give a 'time,path' listing, "
                            "or order the steps by their file times with --sort-by-time "
                            "(recipe: sort_by_time = true)")
-                return SeriesError(f"times do not increase: step {after.index} has time {after.time:g} after "
-                                   f"{before.time:g} at step {before.index} ({before.path})",
+                shown = two_times(before.time, after.time)
+                return SeriesError(f"times do not increase: step {after.index} has time {shown[1]} after "
+                                   f"{shown[0]} at step {before.index} ({before.path})",
                                    where=f"{after.path}, step {after.index}", fix=fix)
         return None
 

@@ -16,7 +16,53 @@ import numpy as np
 from ..errors import SeriesWarning
 from ._series_names import INTERVAL_TOLERANCE, NAME_NUMBER, first_three, name_number
 
-__all__ = ["numbering_gaps", "output_interval", "time_gaps", "warn_series_gaps", "INTERVAL_TOLERANCE"]
+__all__ = ["numbering_gaps", "output_interval", "time_gaps", "warn_series_gaps", "warn_time_resolution", "two_times",
+           "INTERVAL_TOLERANCE", "RESOLUTION_SHARE"]
+
+#: times stored to a resolution of this share of the step interval or more are warned of: the
+#: intervals, and every rate per time, may be off by that share (our threshold)
+RESOLUTION_SHARE = 0.01
+
+
+def two_times(a: float, b: float) -> tuple:
+    """``a`` and ``b`` as text, with the fewest significant digits (six or more) that tell them apart."""
+    for digits in range(6, 18):
+        shown = (f"{a:.{digits}g}", f"{b:.{digits}g}")
+        if shown[0] != shown[1] if a != b else float(shown[0]) == a:
+            return shown
+    return repr(float(a)), repr(float(b))
+
+
+def _coarse_times(steps: list):
+    """``(step, share, interval)``: the step whose stored time's resolution is the largest share of the
+    median step interval, that share and that interval; None when no time is stored coarsely or the
+    times do not increase."""
+    coarse = [s for s in steps if s.time_resolution > 0 and np.isfinite(s.time)]
+    if not coarse:
+        return None
+    intervals = np.diff(np.array([s.time for s in steps if np.isfinite(s.time)]))
+    intervals = intervals[intervals > 0]
+    if intervals.size == 0:
+        return None  # the times do not increase: that is reported, with its cause
+    interval = float(np.median(intervals))
+    worst = max(coarse, key=lambda s: s.time_resolution)
+    return worst, worst.time_resolution / interval, interval
+
+
+def warn_time_resolution(steps: list, where: str) -> None:
+    """Warn (:class:`SeriesWarning`) when the files store the times too coarsely for the step interval:
+    single precision tells 1.0000001 from 1 but not 1.00000005 (about 7 digits), so at t = 1 s steps of
+    1e-7 s read as 1, 1.0000001, 1.0000002, 1.0000004."""
+    found = _coarse_times(steps)
+    if found is None:
+        return
+    worst, share, interval = found
+    if share >= RESOLUTION_SHARE:
+        warnings.warn(SeriesWarning(
+            f"the files store the times in single precision, which tells times near {worst.time:.8g} apart only "
+            f"to {worst.time_resolution:.2g}, {share:.0%} of the step interval ({interval:.2g}): the intervals and "
+            "every rate per time may be off by that share; write the times in double precision, or give a "
+            "'time,path' listing", where=where), stacklevel=4)
 
 
 def _number_of(name: str):
@@ -105,6 +151,9 @@ def warn_series_gaps(files: list, where: str, steps: list) -> None:
         known = np.array([s.time for s in steps if np.isfinite(s.time)])
         if np.any(np.diff(known) <= 0):
             return  # times out of order: the order is reported (or sorted) instead
+        coarse = _coarse_times(steps)
+        if coarse is not None and coarse[1] >= RESOLUTION_SHARE:
+            return  # the times' storage is warned of: their jumps are its rounding
         gaps, interval = time_gaps(known)
         # a jump across steps whose files could not be read is those steps, not missing ones (their
         # own errors name them), when it spans as many intervals as they fill
@@ -118,7 +167,7 @@ def warn_series_gaps(files: list, where: str, steps: list) -> None:
                 unread += 1
         gaps = [g for g in gaps if round((g[1] - g[0]) / interval) - 1 > bridged.get(g, 0)]
         if gaps:
-            shown = first_three([f"{a:g} to {b:g}" for a, b in gaps])
+            shown = first_three(["{} to {}".format(*two_times(a, b)) for a, b in gaps])
             warnings.warn(SeriesWarning(f"the step times jump ({shown}) against the series' most common output "
                                         f"interval {interval:g}: steps may be missing or the output interval changed",
                                         where=where), stacklevel=3)

@@ -422,6 +422,7 @@ def _check_read_times(results, options) -> None:
     writes drift, tracking or the audit over steps out of order.
     """
     from ..errors import SeriesError
+    from ..io._series_gaps import two_times
 
     done = [r for r in results if r.skipped is None and np.isfinite(r.time)]
     for before, after in zip(done[:-1], done[1:]):
@@ -431,8 +432,9 @@ def _check_read_times(results, options) -> None:
                    "the steps by their file times with --sort-by-time (recipe: sort_by_time = true)")
             if options.sort_by_time:
                 fix = "some times were found only by reading the files: give a 'time,path' listing"
-            raise SeriesError(f"times do not increase: step {after.index} has time {after.time:g} after "
-                              f"{before.time:g} at step {before.index} ({before.path})",
+            shown = two_times(before.time, after.time)
+            raise SeriesError(f"times do not increase: step {after.index} has time {shown[1]} after "
+                              f"{shown[0]} at step {before.index} ({before.path})",
                               where=f"{after.path}, step {after.index}", fix=fix)
 
 
