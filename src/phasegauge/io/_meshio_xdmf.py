@@ -28,7 +28,7 @@ from ..model.mesh import Mesh
 from ._meshio_adapter import _WRITE_AGAIN, StepFields, ensure_vtk_extras, hdf5_problem, mesh_and_fields, step_fields
 from ._xdmf_forms import base_offset, form_problem, version_problem
 
-__all__ = ["XdmfTimeSeries"]
+__all__ = ["XdmfTimeSeries", "offset_cells"]
 
 _CHECK_FILES = "check the XDMF file and the HDF5 files it names"
 
@@ -127,7 +127,7 @@ class XdmfTimeSeries:
                     reader.mesh_grid = mesh_grid
                     reader._points, _ = reader.read_points_cells()
                     if offset:
-                        reader.cells = _offset_cells(reader.cells, offset, where)
+                        reader.cells = offset_cells(reader.cells, offset, where)
                     self._points_key = key
                 if node.find("Time") is None:  # meshio needs a time in every grid
                     ET.SubElement(node, "Time", Value=str(float(grid)))
@@ -166,7 +166,7 @@ class XdmfTimeSeries:
                 pass
 
 
-def _offset_cells(cells, offset: int, where: str) -> list:
+def offset_cells(cells, offset: int, where: str) -> list:
     """meshio's cell blocks with the Topology's ``BaseOffset`` subtracted from their corner numbers.
 
     Raises

@@ -16,6 +16,8 @@ import numpy as np
 from ..errors import InputFileNotFound, SeriesError, UnreadableFileError
 from ._formats import register_format, stored_time
 from ._meshio_adapter import read_with_meshio
+from ._meshio_xdmf import offset_cells
+from ._xdmf_forms import base_offset, form_problem
 
 __all__ = ["FORMATS", "temporal_grids", "collection_times", "lone_collection", "grid_time", "xdmf_data_files",
            "data_file_names"]
@@ -214,8 +216,25 @@ def xdmf_data_files(path) -> list:
 
 
 def read_xdmf(path: str):
-    """Read an XDMF file through meshio (its HDF5 claims are checked by ``read_mesh_file`` first)."""
-    return read_with_meshio(path, "xdmf")
+    """Read an XDMF file through meshio (its HDF5 claims are checked by ``read_mesh_file`` first).
+
+    Forms meshio does not read are refused by name first, and a Topology's ``BaseOffset``
+    (which meshio does not read) is subtracted from the corner numbers it gives.
+    """
+    try:
+        grid = next((g for g in ET.parse(path).getroot().iter("Grid") if g.find("Topology") is not None), None)
+    except (ET.ParseError, OSError):  # meshio's failure on it says what is wrong
+        grid = None
+    offset = 0
+    if grid is not None:
+        problem = form_problem(grid, path)
+        if problem is not None:
+            raise problem
+        offset = base_offset(grid, path)
+    raw = read_with_meshio(path, "xdmf")
+    if offset:
+        raw.cells = offset_cells(raw.cells, offset, path)
+    return raw
 
 
 FORMATS = (register_format("xdmf", (".xdmf", ".xmf"), read=read_xdmf, hdf5_files=xdmf_data_files),)
