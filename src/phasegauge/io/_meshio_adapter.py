@@ -1,9 +1,9 @@
-"""meshio behind the project's model: every use of meshio's readers, public or private, is here.
+"""meshio behind the project's model: every use of meshio's readers, public or private, is here
+(and in :mod:`._meshio_xdmf`, its XDMF time-series reader).
 
 * :func:`read_with_meshio` reads one file with meshio's reader of a format (the
   format modules :mod:`._vtk` and :mod:`._xdmf` register it), and says in the
   user's terms what is wrong with a file meshio fails on;
-* :class:`XdmfTimeSeries` reads an XDMF temporal collection step by step;
 * :func:`mesh_and_fields` turns what meshio read into a :class:`Mesh` (a kept one
   of a :class:`MeshPool` when the points and cells are the same) and fields.
 
@@ -29,7 +29,7 @@ from ..model._places import coincident_points, corner_means, first_copies
 from ..model.mesh import Mesh
 from ._cells_refused import cell_type_refused, check_cells_left_out
 
-__all__ = ["StepFields", "read_with_meshio", "new_mesh", "XdmfTimeSeries", "mesh_and_fields", "step_fields",
+__all__ = ["StepFields", "read_with_meshio", "new_mesh", "mesh_and_fields", "step_fields",
            "diagnose_read_failure", "hdf5_problem"]
 
 
@@ -312,97 +312,6 @@ def hdf5_problem(exc: BaseException, xdmf_path: str):
         return UnreadableFileError(f"the HDF5 file '{name}' is truncated{detail}", where=xdmf_path, fix=_STOPPED)
     return UnreadableFileError(f"the HDF5 file '{name}' cannot be opened ({short_text(exc)})", where=xdmf_path,
                                fix=f"check {name}: it may be damaged or still being written")
-
-
-class XdmfTimeSeries:
-    """An XDMF temporal collection, read one grid at a time with meshio's ``TimeSeriesReader``.
-
-    The points and cells are read once per mesh (the collection's shared mesh,
-    or a grid's own) and the model :class:`Mesh` is built once per mesh; HDF5
-    files stay open until :meth:`close`.
-
-    Raises
-    ------
-    UnreadableFileError
-        meshio cannot open the collection.
-    """
-
-    def __init__(self, path: str):
-        import meshio
-
-        ensure_vtk_extras()
-        self.path = path
-        try:
-            self._reader = meshio.xdmf.TimeSeriesReader(path)
-        except Exception as exc:
-            raise UnreadableFileError(f"cannot be read as an XDMF time series ({exc})", where=path,
-                                      fix="check the XDMF file and the HDF5 files it names") from None
-        self._points_key = None  # whose points and cells the reader holds now
-        self._built = None  # (key, Mesh) of the last mesh built
-
-    def read(self, grid: int, where: str):
-        """``(key, raw)``: which mesh grid ``grid`` uses (its index or ``'shared'``) and a meshio mesh of it."""
-        import meshio
-        import xml.etree.ElementTree as ET
-
-        reader = self._reader
-        node = reader.collection[grid]
-        own_mesh = any(child.tag in ("Topology", "Geometry") for child in node)
-        key = grid if own_mesh else "shared"
-        try:
-            with warnings.catch_warnings():
-                warnings.simplefilter("ignore")
-                if self._points_key != key:
-                    if own_mesh:
-                        reader.mesh_grid = node
-                    reader._points, _ = reader.read_points_cells()
-                    self._points_key = key
-                if node.find("Time") is None:  # meshio needs a time in every grid
-                    ET.SubElement(node, "Time", Value=str(float(grid)))
-                _, point_data, cell_data = reader.read_data(grid)
-        except Exception as exc:
-            problem = hdf5_problem(exc, self.path)
-            if problem is not None:
-                raise problem.at(where) from None
-            if isinstance(exc, FileNotFoundError):
-                raise InputFileNotFound(f"a data file the XDMF names is missing ({short_text(exc)})",
-                                        where=where, fix="restore the HDF5 file next to the XDMF file") from None
-            raise UnreadableFileError(f"cannot read the step's data ({short_text(exc)})", where=where,
-                                      fix="check that the HDF5 file is complete (not truncated)") from None
-        _check_field_lengths(len(reader._points), reader.cells, point_data, cell_data, where)
-        return key, meshio.Mesh(reader._points, reader.cells, point_data=point_data, cell_data=cell_data)
-
-    def step(self, grid: int, where: str, pool=None) -> tuple[Mesh, "StepFields"]:
-        """Mesh and fields of grid ``grid`` (the mesh built once while the grids share it)."""
-        key, raw = self.read(grid, where)
-        if self._built is not None and self._built[0] == key:
-            mesh = self._built[1]
-            return mesh, step_fields(mesh, raw, where, field_data=False)
-        mesh, fields = mesh_and_fields(raw, where, pool)
-        self._built = (key, mesh)
-        return mesh, fields
-
-    def close(self) -> None:
-        """Close the HDF5 files the reader opened."""
-        for handle in self._reader.hdf5_files.values():
-            try:
-                handle.close()
-            except Exception:
-                pass
-
-
-def _check_field_lengths(n_points: int, cells, point_data: dict, cell_data: dict, where: str) -> None:
-    """Refuse fields whose length does not match the points or the cell blocks (a step written short or long)."""
-    for name, values in point_data.items():
-        if len(values) != n_points:
-            raise FieldShapeError(f"point field '{name}' has {len(values)} values for {n_points} points",
-                                  where=where, fix=_WRITE_AGAIN)
-    sizes = [len(block.data) for block in cells]
-    for name, blocks in cell_data.items():
-        found = [len(b) for b in blocks]
-        if found != sizes:
-            raise FieldShapeError(f"cell field '{name}' has {sum(found)} values for {sum(sizes)} cells "
-                                  f"({sum(found) - sum(sizes):+d})", where=where, fix=_WRITE_AGAIN)
 
 
 _WRITE_AGAIN = "the step was written short or damaged: write it again or remove it from the series"

@@ -36,11 +36,12 @@ from ..model.mesh import Mesh
 from ._formats import (TIME_NEEDS_FULL_READ, check_readable, format_for, peek_time, read_mesh_file, stored_time,
                        suffix_list, surface_file_problem)
 from ._mesh_pool import MeshPool
-from ._meshio_adapter import StepFields, XdmfTimeSeries, mesh_and_fields
+from ._meshio_adapter import StepFields, mesh_and_fields
+from ._meshio_xdmf import XdmfTimeSeries
 from ._claims import CheckedFiles, check_hdf5_claims
 from ._series_gaps import two_times, warn_series_gaps, warn_time_resolution
 from ._series_names import check_one_family, digits_masked, first_three, natural_key, warn_decimal_doubt
-from ._xdmf import grid_time, lone_collection, temporal_grids, xdmf_data_files
+from ._xdmf import collection_times, grid_time, lone_collection, temporal_grids, xdmf_data_files
 
 __all__ = ["Series", "StepInfo", "Step", "open_series", "natural_key", "read_listing",
            "LISTING_SUFFIXES"]
@@ -337,11 +338,15 @@ class Series:
         return self._from_files([path])
 
     def _collection_steps(self, path: str, grids: list) -> list[StepInfo]:
-        """The steps of the XDMF temporal collection in file ``path`` (its grids)."""
+        """The steps of the XDMF temporal collection in file ``path`` (its grids): a grid's time is its own
+        ``<Time Value=...>``, else its place in the collection's time list, else its index."""
         self.kind = "collection"
         steps = []
+        listed = collection_times(path, len(grids))  # a <Time TimeType="List"> of the collection, or None
         for i, grid in enumerate(grids):
             t = grid_time(grid, where=f"{path}, step {i}")
+            if t is None and listed is not None:
+                t = listed[i]
             if t is not None:
                 steps.append(StepInfo(i, t, "xdmf", path, grid=i))
             else:

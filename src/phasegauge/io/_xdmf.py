@@ -11,11 +11,16 @@ import os
 import re
 import xml.etree.ElementTree as ET
 
-from ..errors import SeriesError, UnreadableFileError
+import numpy as np
+
+from ..errors import InputFileNotFound, SeriesError, UnreadableFileError
 from ._formats import register_format, stored_time
 from ._meshio_adapter import read_with_meshio
+from ._meshio_xdmf import offset_cells
+from ._xdmf_forms import base_offset, form_problem
 
-__all__ = ["FORMATS", "temporal_grids", "lone_collection", "grid_time", "xdmf_data_files", "data_file_names"]
+__all__ = ["FORMATS", "temporal_grids", "collection_times", "lone_collection", "grid_time", "xdmf_data_files",
+           "data_file_names"]
 
 #: an HDF5 reference in a DataItem: ``file.h5:/path``
 _HDF5_REFERENCE = re.compile(r">\s*([^<>:\s]+\.(?:h5|hdf5|hdf))\s*:")
@@ -23,6 +28,8 @@ _HDF5_REFERENCE = re.compile(r">\s*([^<>:\s]+\.(?:h5|hdf5|hdf))\s*:")
 
 def temporal_grids(path: str):
     """The grids of the file's temporal collection (XML elements), or None for a plain XDMF file.
+
+    Each grid is a step; other children of the collection (a ``Time`` list) are left out.
 
     Raises
     ------
@@ -34,9 +41,15 @@ def temporal_grids(path: str):
     except (ET.ParseError, OSError) as exc:
         raise UnreadableFileError(f"not a readable XDMF file ({exc})", where=path,
                                   fix="check that the file is complete XML") from None
+    collection = _temporal_collection(root)
+    return None if collection is None else [g for g in collection if g.tag == "Grid"]
+
+
+def _temporal_collection(root):
+    """The first temporal collection (a ``Grid`` element) under ``root``, or None."""
     for grid in root.iter("Grid"):
         if grid.get("GridType") == "Collection" and grid.get("CollectionType") == "Temporal":
-            return [g for g in grid if g.tag == "Grid"]
+            return grid
     return None
 
 
@@ -82,6 +95,98 @@ def grid_time(grid, where: str = "") -> float | None:
     return None
 
 
+def collection_times(path: str, n_grids: int):
+    """The times a temporal collection gives its grids in one ``<Time>`` child of the collection, or None.
+
+    A ``TimeType="List"`` holds one time per grid; a ``"HyperSlab"`` holds the start, the
+    stride and the count of the times. Its DataItem holds the values inline (``Format="XML"``)
+    or names them in an HDF5 file (``Format="HDF"``: ``file.h5:/path``, relative to the XDMF
+    file's folder), read with h5py.
+
+    Parameters
+    ----------
+    path : str
+        The XDMF file.
+    n_grids : int
+        How many grids the collection holds (the steps).
+
+    Returns
+    -------
+    list of float or None
+        One time per grid; None when the collection has no time list.
+
+    Raises
+    ------
+    SeriesError
+        A list whose length differs from the grids' count, a ``"Range"`` (the span of the
+        collection, not each grid's time), a value that is no finite number, or an HDF5
+        reference to no dataset.
+    InputFileNotFound
+        The HDF5 file the list names does not exist.
+    """
+    collection = _temporal_collection(ET.parse(path).getroot())
+    nodes = [] if collection is None else [n for n in collection if n.tag == "Time"]
+    if not nodes:
+        return None
+    node = nodes[0]
+    kind = (node.get("TimeType") or node.get("Type") or "Single").strip()
+    if kind.lower() == "single":
+        return None
+    where = f"{path}, the collection's <Time TimeType=\"{kind}\">"
+    if kind.lower() == "range":
+        raise SeriesError("a Range gives the first and the last time of the collection, not each grid's time",
+                          where=where, fix=_TIMES_FIX)
+    if kind.lower() not in ("list", "hyperslab"):
+        raise SeriesError(f"the TimeType {kind!r} is none of Single, List, HyperSlab, Range", where=where,
+                          fix=_TIMES_FIX)
+    values = [stored_time(v, where=where, source="in the time list", fix=_TIMES_FIX)
+              for v in _time_item_values(node, path, where)]
+    if kind.lower() == "hyperslab":
+        if len(values) != 3 or values[2] != int(values[2]):
+            raise SeriesError(f"a HyperSlab holds 3 values (start, stride, count), not {values[:6]}", where=where,
+                              fix=_TIMES_FIX)
+        start, stride, count = values[0], values[1], int(values[2])
+        if count != n_grids:
+            raise SeriesError(f"the HyperSlab counts {count} times for {n_grids} grids", where=where,
+                              fix=_TIMES_FIX)
+        return [start + stride * k for k in range(count)]
+    if len(values) != n_grids:
+        raise SeriesError(f"the list holds {len(values)} times for {n_grids} grids", where=where, fix=_TIMES_FIX)
+    return values
+
+
+_TIMES_FIX = ("write one time per grid: a <Time TimeType=\"List\"> of as many values as the collection has grids, "
+              "or a <Time Value=...> in each grid")
+
+
+def _time_item_values(node, path: str, where: str) -> list:
+    """The values of the one DataItem of a ``Time`` element: inline text, or an HDF5 dataset (h5py)."""
+    items = [n for n in node if n.tag == "DataItem"]
+    if len(items) != 1:
+        raise SeriesError(f"it holds {len(items)} DataItems, not one", where=where, fix=_TIMES_FIX)
+    item = items[0]
+    text = (item.text or "").strip()
+    fmt = (item.get("Format") or "XML").strip().upper()
+    if fmt == "XML":
+        return text.split()
+    if fmt != "HDF":
+        raise SeriesError(f"its DataItem's Format is {fmt}; times are read inline (XML) or from HDF5 (HDF)",
+                          where=where, fix=_TIMES_FIX)
+    import h5py
+
+    name, _, inside = text.rpartition(":")
+    full = name if os.path.isabs(name) else os.path.join(os.path.dirname(os.path.abspath(path)), name)
+    if not os.path.isfile(full):
+        raise InputFileNotFound(f"the HDF5 file '{name}' holding the times is missing", where=where,
+                                fix=f"put {name} back next to {os.path.basename(path)}")
+    with h5py.File(full, "r") as handle:
+        data = handle.get(inside)
+        if not isinstance(data, h5py.Dataset):
+            raise SeriesError(f"the HDF5 file '{name}' has no dataset '{inside}'", where=where,
+                              fix="write the times there, or correct the reference (file.h5:/path)")
+        return list(np.asarray(data[()]).ravel())
+
+
 def data_file_names(path: str) -> list:
     """The HDF5 file names an XDMF file's data items refer to, as written, sorted ([] when unreadable)."""
     try:
@@ -111,8 +216,25 @@ def xdmf_data_files(path) -> list:
 
 
 def read_xdmf(path: str):
-    """Read an XDMF file through meshio (its HDF5 claims are checked by ``read_mesh_file`` first)."""
-    return read_with_meshio(path, "xdmf")
+    """Read an XDMF file through meshio (its HDF5 claims are checked by ``read_mesh_file`` first).
+
+    Forms meshio does not read are refused by name first, and a Topology's ``BaseOffset``
+    (which meshio does not read) is subtracted from the corner numbers it gives.
+    """
+    try:
+        grid = next((g for g in ET.parse(path).getroot().iter("Grid") if g.find("Topology") is not None), None)
+    except (ET.ParseError, OSError):  # meshio's failure on it says what is wrong
+        grid = None
+    offset = 0
+    if grid is not None:
+        problem = form_problem(grid, path)
+        if problem is not None:
+            raise problem
+        offset = base_offset(grid, path)
+    raw = read_with_meshio(path, "xdmf")
+    if offset:
+        raw.cells = offset_cells(raw.cells, offset, path)
+    return raw
 
 
 FORMATS = (register_format("xdmf", (".xdmf", ".xmf"), read=read_xdmf, hdf5_files=xdmf_data_files),)

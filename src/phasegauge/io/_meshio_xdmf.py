@@ -1,0 +1,201 @@
+"""meshio's XDMF time-series reader behind the project's model: an XDMF temporal collection, grid by grid.
+
+meshio's ``TimeSeriesReader`` reads the numbers (the HDF5 or inline DataItems); the
+XML around them is looked at here first. Three things are told to it:
+
+* the grids of the collection are its steps: other children of the collection (a
+  collection-level ``<Time TimeType="List">``) are left out of its list, so step k
+  reads grid k;
+* forms it does not read (:func:`._xdmf_forms.form_problem`) are refused by name before it
+  reads, and a Topology's ``BaseOffset`` (which it does not read) is subtracted from the
+  corner numbers it gives;
+* a version 2 file is handed to it too: its constructor refuses any version but 3, but
+  nothing else of it depends on the version (it takes the names of both, ``TopologyType``
+  / ``Type`` and ``DataType`` / ``NumberType``), so the constructor's finding of the
+  collection and the mesh grid is done here for a version 2 file.
+"""
+
+from __future__ import annotations
+
+import pathlib
+import warnings
+import xml.etree.ElementTree as ET
+
+import numpy as np
+
+from ..errors import FieldShapeError, InputFileNotFound, UnreadableFileError, UnsupportedMeshError, short_text
+from ..model.mesh import Mesh
+from ._meshio_adapter import _WRITE_AGAIN, StepFields, ensure_vtk_extras, hdf5_problem, mesh_and_fields, step_fields
+from ._xdmf_forms import base_offset, form_problem, version_problem
+
+__all__ = ["XdmfTimeSeries", "offset_cells"]
+
+_CHECK_FILES = "check the XDMF file and the HDF5 files it names"
+
+
+def _time_series_reader(path: str):
+    """meshio's ``TimeSeriesReader`` of ``path`` (version 2 or 3), its collection holding only the grids."""
+    import meshio
+
+    try:
+        root = ET.parse(path).getroot()
+    except (ET.ParseError, OSError) as exc:
+        raise UnreadableFileError(f"not a readable XDMF file ({short_text(exc)})", where=path,
+                                  fix="check that the file is complete XML") from None
+    problem = version_problem(root, path)
+    if problem is not None:
+        raise problem
+    try:
+        if root.get("Version").strip().split(".")[0] == "3":
+            reader = meshio.xdmf.TimeSeriesReader(path)
+        else:
+            reader = _version2_reader(path, root)
+    except Exception as exc:
+        raise UnreadableFileError(f"cannot be read as an XDMF time series ({short_text(exc)})", where=path,
+                                  fix=_CHECK_FILES) from None
+    reader.collection = [node for node in reader.collection if node.tag == "Grid"]
+    reader.num_steps = len(reader.collection)
+    return reader
+
+
+def _version2_reader(path: str, root):
+    """meshio's reader made without its constructor (which refuses version 2), set as the constructor sets it:
+    the one Domain, its temporal collection, and the mesh grid (a Uniform grid of the Domain, else the first
+    Uniform grid of the collection)."""
+    from meshio.xdmf.time_series import TimeSeriesReader
+
+    domains = [node for node in root if node.tag == "Domain"]
+    if len(domains) != 1:
+        raise ValueError(f"{len(domains)} Domain elements, not one")
+    grids = [node for node in domains[0] if node.tag == "Grid"]
+    collections = [g for g in grids if g.get("GridType") == "Collection" and g.get("CollectionType") == "Temporal"]
+    if not collections:
+        raise ValueError("no temporal collection in the Domain")
+    uniform = [g for g in grids if g.get("GridType") == "Uniform"]
+    uniform += [g for g in collections[-1] if g.tag == "Grid" and g.get("GridType", "Uniform") == "Uniform"]
+    if not uniform:
+        raise ValueError("no Uniform grid holds the mesh")
+    reader = TimeSeriesReader.__new__(TimeSeriesReader)
+    reader.filename = pathlib.Path(path)
+    reader.domain = domains[0]
+    reader.collection = list(collections[-1])
+    reader.num_steps = len(reader.collection)
+    reader.cells = None
+    reader.hdf5_files = {}
+    reader.mesh_grid = uniform[0]
+    return reader
+
+
+class XdmfTimeSeries:
+    """An XDMF temporal collection, read one grid at a time with meshio's ``TimeSeriesReader``.
+
+    The points and cells are read once per mesh (the collection's shared mesh,
+    or a grid's own) and the model :class:`Mesh` is built once per mesh; HDF5
+    files stay open until :meth:`close`.
+
+    Raises
+    ------
+    UnreadableFileError
+        meshio cannot open the collection, or its XDMF version is neither 2 nor 3.
+    """
+
+    def __init__(self, path: str):
+        ensure_vtk_extras()
+        self.path = path
+        self._reader = _time_series_reader(path)
+        self._shared_grid = self._reader.mesh_grid  # the grid whose mesh grids without their own use
+        self._points_key = None  # whose points and cells the reader holds now
+        self._built = None  # (key, Mesh) of the last mesh built
+
+    def read(self, grid: int, where: str):
+        """``(key, raw)``: which mesh grid ``grid`` uses (its index or ``'shared'``) and a meshio mesh of it."""
+        import meshio
+
+        reader = self._reader
+        node = reader.collection[grid]
+        own_mesh = any(child.tag in ("Topology", "Geometry") for child in node)
+        key = grid if own_mesh else "shared"
+        mesh_grid = node if own_mesh else self._shared_grid
+        problem = form_problem(mesh_grid, where)
+        if problem is not None:
+            raise problem
+        offset = base_offset(mesh_grid, where)
+        try:
+            with warnings.catch_warnings():
+                warnings.simplefilter("ignore")
+                if self._points_key != key:
+                    reader.mesh_grid = mesh_grid
+                    reader._points, _ = reader.read_points_cells()
+                    if offset:
+                        reader.cells = offset_cells(reader.cells, offset, where)
+                    self._points_key = key
+                if node.find("Time") is None:  # meshio needs a time in every grid
+                    ET.SubElement(node, "Time", Value=str(float(grid)))
+                _, point_data, cell_data = reader.read_data(grid)
+        except UnsupportedMeshError:
+            raise
+        except Exception as exc:
+            problem = hdf5_problem(exc, self.path)
+            if problem is not None:
+                raise problem.at(where) from None
+            if isinstance(exc, FileNotFoundError):
+                raise InputFileNotFound(f"a data file the XDMF names is missing ({short_text(exc)})",
+                                        where=where, fix="restore the HDF5 file next to the XDMF file") from None
+            raise UnreadableFileError(f"cannot read the step's data ({short_text(exc)})", where=where,
+                                      fix="check the DataItems of the XDMF file and that the HDF5 files they name are "
+                                          "complete (not truncated)") from None
+        _check_field_lengths(len(reader._points), reader.cells, point_data, cell_data, where)
+        return key, meshio.Mesh(reader._points, reader.cells, point_data=point_data, cell_data=cell_data)
+
+    def step(self, grid: int, where: str, pool=None) -> tuple[Mesh, StepFields]:
+        """Mesh and fields of grid ``grid`` (the mesh built once while the grids share it)."""
+        key, raw = self.read(grid, where)
+        if self._built is not None and self._built[0] == key:
+            mesh = self._built[1]
+            return mesh, step_fields(mesh, raw, where, field_data=False)
+        mesh, fields = mesh_and_fields(raw, where, pool)
+        self._built = (key, mesh)
+        return mesh, fields
+
+    def close(self) -> None:
+        """Close the HDF5 files the reader opened."""
+        for handle in self._reader.hdf5_files.values():
+            try:
+                handle.close()
+            except Exception:
+                pass
+
+
+def offset_cells(cells, offset: int, where: str) -> list:
+    """meshio's cell blocks with the Topology's ``BaseOffset`` subtracted from their corner numbers.
+
+    Raises
+    ------
+    UnsupportedMeshError
+        A corner number below the offset (the numbers do not start where BaseOffset says).
+    """
+    from meshio import CellBlock
+
+    out = []
+    for block in cells:
+        data = np.asarray(block.data)
+        if data.size and data.min() < offset:
+            raise UnsupportedMeshError(f"the Topology's BaseOffset is {offset} but a corner number is {data.min()}",
+                                       where=where, fix="write the BaseOffset the corner numbers start from "
+                                                        "(1 for numbers from 1; 0 or none for numbers from 0)")
+        out.append(CellBlock(block.type, data - data.dtype.type(offset)))
+    return out
+
+
+def _check_field_lengths(n_points: int, cells, point_data: dict, cell_data: dict, where: str) -> None:
+    """Refuse fields whose length does not match the points or the cell blocks (a step written short or long)."""
+    for name, values in point_data.items():
+        if len(values) != n_points:
+            raise FieldShapeError(f"point field '{name}' has {len(values)} values for {n_points} points",
+                                  where=where, fix=_WRITE_AGAIN)
+    sizes = [len(block.data) for block in cells]
+    for name, blocks in cell_data.items():
+        found = [len(b) for b in blocks]
+        if found != sizes:
+            raise FieldShapeError(f"cell field '{name}' has {sum(found)} values for {sum(sizes)} cells "
+                                  f"({sum(found) - sum(sizes):+d})", where=where, fix=_WRITE_AGAIN)

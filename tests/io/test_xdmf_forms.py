@@ -1,0 +1,207 @@
+"""XDMF files in the forms C and Fortran solvers write them: a collection's time list, version 2,
+a Topology's BaseOffset, and forms that are not read (named, with what to write instead).
+
+Outside checks: the files are written here by hand as the XDMF specification lays them out
+(XDMF Model and Format, https://www.xdmf.org/index.php/XDMF_Model_and_Format: Time with
+TimeType List / HyperSlab / Range, Topology BaseOffset, GeometryType X_Y_Z, 2DCoRectMesh) [spec],
+their numbers with h5py [lib]; every time and every step's values read are compared with the
+numpy arrays written [lib]; a BaseOffset file is compared with meshio's reading of the same
+cells numbered from 0 [lib].
+"""
+
+import numpy as np
+import pytest
+
+from phasegauge.errors import SeriesError, UnreadableFileError, UnsupportedMeshError
+from phasegauge.io import Series
+
+h5py = pytest.importorskip("h5py")
+
+NX, NY = 4, 3  # cells along x and y
+TIMES = (0.0, 1e-7, 2.5e-7)  # unevenly spaced, so a step index is no time
+
+
+def _mesh_arrays():
+    """Points (x fastest) and quads of an NX x NY grid of unit squares."""
+    xs, ys = np.meshgrid(np.arange(NX + 1.0), np.arange(NY + 1.0))
+    points = np.c_[xs.ravel(), ys.ravel()]
+    i, j = np.meshgrid(np.arange(NX), np.arange(NY))
+    first = (j * (NX + 1) + i).ravel()
+    quads = np.c_[first, first + 1, first + NX + 2, first + NX + 1]
+    return points, quads
+
+
+def _values(k):
+    """Step k's cell field: different in every cell and every step."""
+    return k + 0.01 * np.arange(NX * NY)
+
+
+def _write(folder, name="run.xdmf", *, version="3.0", times="grid", offset=0, geometry="XY", topology=None,
+           header=""):
+    """An XDMF temporal collection of len(TIMES) grids, its numbers in mesh.h5 and fields.h5.
+
+    ``times``: 'grid' (a <Time Value> in each grid), 'list-first' / 'list-after' (a collection-level
+    <Time TimeType="List"> before or after the grids, values inline), 'list-hdf' (the list in an HDF5
+    dataset), or an XML string put first in the collection. ``offset``: the Topology's BaseOffset, added
+    to the corner numbers written."""
+    points, quads = _mesh_arrays()
+    with h5py.File(folder / "mesh.h5", "w") as f:
+        f["xy"] = points
+        f["conn"] = (quads + offset).astype(np.int64)
+        for axis, column in zip("xyz", (points[:, 0], points[:, 1], np.zeros(len(points)))):
+            f[axis] = column
+        f["times"] = np.array(TIMES)
+    with h5py.File(folder / "fields.h5", "w") as f:
+        for k in range(len(TIMES)):
+            f[f"c_{k}"] = _values(k)
+    n = len(points)
+    kind = 'Type' if version.startswith("2") else 'TopologyType'
+    base = f' BaseOffset="{offset}"' if offset else ""
+    topo = topology or (f'<Topology {kind}="Quadrilateral" NumberOfElements="{NX * NY}"{base}><DataItem '
+                        f'Dimensions="{NX * NY} 4" NumberType="Int" Precision="8" Format="HDF">mesh.h5:/conn'
+                        '</DataItem></Topology>')
+    if geometry == "X_Y_Z":
+        geo = '<Geometry GeometryType="X_Y_Z">' + "".join(
+            f'<DataItem Dimensions="{n}" NumberType="Float" Precision="8" Format="HDF">mesh.h5:/{a}</DataItem>'
+            for a in "xyz") + "</Geometry>"
+    else:
+        geo = (f'<Geometry GeometryType="XY"><DataItem Dimensions="{n} 2" NumberType="Float" Precision="8" '
+               'Format="HDF">mesh.h5:/xy</DataItem></Geometry>')
+    grids = []
+    for k, t in enumerate(TIMES):
+        own_time = f'<Time Value="{t!r}"/>' if times == "grid" else ""
+        grids.append(f'<Grid Name="s{k}" GridType="Uniform">{own_time}{topo}{geo}<Attribute Name="c" '
+                     f'AttributeType="Scalar" Center="Cell"><DataItem Dimensions="{NX * NY}" NumberType="Float" '
+                     f'Precision="8" Format="HDF">fields.h5:/c_{k}</DataItem></Attribute></Grid>')
+    inline = " ".join(repr(t) for t in TIMES)
+    listed = {"list-first": inline, "list-after": inline, "list-hdf": None}
+    before, after = "", ""
+    if times in listed:
+        item = (f'<DataItem Format="XML" Dimensions="{len(TIMES)}">{inline}</DataItem>' if times != "list-hdf" else
+                f'<DataItem Format="HDF" NumberType="Float" Precision="8" Dimensions="{len(TIMES)}">'
+                'mesh.h5:/times</DataItem>')
+        element = f'<Time TimeType="List">{item}</Time>'
+        before, after = (element, "") if times != "list-after" else ("", element)
+    elif times != "grid":
+        before = times
+    path = folder / name
+    path.write_text(f'<?xml version="1.0" ?>\n{header}<Xdmf Version="{version}" '
+                    'xmlns:xi="http://www.w3.org/2001/XInclude"><Domain><Grid Name="T" GridType="Collection" '
+                    f'CollectionType="Temporal">{before}{"".join(grids)}{after}</Grid></Domain></Xdmf>\n')
+    return path
+
+
+def _check_steps(path):
+    """Every step's time and cell values are the ones written for its grid [spec, numpy]."""
+    series = Series(path)
+    assert series.kind == "collection" and len(series) == len(TIMES)
+    np.testing.assert_array_equal(series.times, TIMES)
+    assert series.time_origins == ["xdmf"]
+    for k, step in enumerate(series):
+        np.testing.assert_array_equal(step.fields.cell_data["c"], _values(k))
+    series.close()
+    return series
+
+
+@pytest.mark.parametrize("times", ["list-first", "list-after", "list-hdf"])
+def test_collection_time_list_gives_the_times_and_step_k_reads_grid_k(tmp_path, times):
+    """A <Time TimeType="List"> child of the collection [spec] (inline, or an HDF5 dataset written by h5py
+    [lib]): the steps take its times, and the Time element before the grids shifts no step onto the
+    previous grid's data (regression: step 1 read grid 0)."""
+    _check_steps(_write(tmp_path, times=times))
+
+
+def test_collection_time_hyperslab_gives_start_stride_count(tmp_path):
+    """TimeType="HyperSlab" holds start, stride and count [spec]: the times are start + k * stride."""
+    path = _write(tmp_path, times='<Time TimeType="HyperSlab"><DataItem Format="XML" Dimensions="3">'
+                                  f'0.5 0.25 {len(TIMES)}</DataItem></Time>')
+    series = Series(path)
+    np.testing.assert_allclose(series.times, 0.5 + 0.25 * np.arange(len(TIMES)), rtol=0, atol=0)
+    np.testing.assert_array_equal(series.read(2).fields.cell_data["c"], _values(2))
+
+
+@pytest.mark.parametrize("time, message", [
+    ('<Time TimeType="List"><DataItem Format="XML" Dimensions="2">0 1</DataItem></Time>',
+     r"the list holds 2 times for 3 grids; write one time per grid"),
+    ('<Time TimeType="Range"><DataItem Format="XML" Dimensions="2">0 1</DataItem></Time>',
+     r"a Range gives the first and the last time of the collection, not each grid's time; write one time"),
+    ('<Time TimeType="List"><DataItem Format="HDF" Dimensions="3">gone.h5:/t</DataItem></Time>',
+     r"the HDF5 file 'gone.h5' holding the times is missing; put gone.h5 back"),
+])
+def test_collection_time_list_that_gives_no_time_per_grid_is_refused(tmp_path, time, message):
+    """A list of the wrong length, a Range (the collection's span [spec]) or a list in a missing HDF5 file
+    is refused in one line naming the Time element and the fix."""
+    path = _write(tmp_path, times=time)
+    with pytest.raises((SeriesError, FileNotFoundError), match=message) as caught:
+        Series(path)
+    assert "<Time TimeType=" in str(caught.value) and "\n" not in str(caught.value)
+
+
+def test_version_2_collection_reads_as_written(tmp_path):
+    """An XDMF 2 file (DOCTYPE, Topology Type=, NumberType [spec]) reads through meshio's version 3 reader
+    [lib]: the same times and values as written (it was refused as 'Unknown XDMF version 2.0')."""
+    header = '<!DOCTYPE Xdmf SYSTEM "Xdmf.dtd" []>\n'
+    _check_steps(_write(tmp_path, name="run.xmf", version="2.0", header=header))
+    _check_steps(_write(tmp_path, name="list.xmf", version="2.0", header=header, times="list-first"))
+
+
+def test_other_xdmf_versions_are_refused_naming_the_version(tmp_path):
+    path = _write(tmp_path, version="1.0")
+    with pytest.raises(UnreadableFileError, match=r"has version 1.0; time collections of versions 2 and 3 are "
+                                                  r"read; write Version=\"3.0\""):
+        Series(path).read(0)
+
+
+def test_topology_base_offset_is_subtracted_from_the_corner_numbers(tmp_path):
+    """Corner numbers from 1 with BaseOffset="1" [spec] (as Fortran solvers write them) read as the same
+    mesh as meshio's reading [lib] of the numbers from 0 (they were refused as a damaged file)."""
+    import meshio
+
+    points, quads = _mesh_arrays()
+    series = _check_steps(_write(tmp_path, offset=1))
+    mesh = Series(series.path).read(0).mesh
+    plain = tmp_path / "zero"
+    plain.mkdir()
+    meshio.write(plain / "zero.vtu", meshio.Mesh(points, [("quad", quads)]))
+    expected = Series(plain / "zero.vtu").read(0).mesh
+    np.testing.assert_array_equal(mesh.points, expected.points)
+    np.testing.assert_array_equal(mesh.blocks[0].connectivity, expected.blocks[0].connectivity)
+
+
+def test_base_offset_of_a_plain_xdmf_file_is_subtracted(tmp_path):
+    """One Uniform grid (no collection) with BaseOffset="1" [spec]: the cells number the points from 0
+    (compared with the quads written, numpy [lib])."""
+    _write(tmp_path, offset=1)  # the HDF5 files
+    topo = (f'<Topology TopologyType="Quadrilateral" NumberOfElements="{NX * NY}" BaseOffset="1"><DataItem '
+            f'Dimensions="{NX * NY} 4" NumberType="Int" Precision="8" Format="HDF">mesh.h5:/conn</DataItem>'
+            '</Topology>')
+    n = (NX + 1) * (NY + 1)
+    path = tmp_path / "one.xdmf"
+    path.write_text(f'<?xml version="1.0" ?><Xdmf Version="3.0"><Domain><Grid Name="m" GridType="Uniform">{topo}'
+                    f'<Geometry GeometryType="XY"><DataItem Dimensions="{n} 2" NumberType="Float" Precision="8" '
+                    'Format="HDF">mesh.h5:/xy</DataItem></Geometry></Grid></Domain></Xdmf>\n')
+    step = Series(path).read(0)
+    np.testing.assert_array_equal(step.mesh.blocks[0].connectivity, _mesh_arrays()[1])
+
+
+def test_base_offset_above_the_corner_numbers_is_refused_naming_it(tmp_path):
+    path = _write(tmp_path)
+    path.write_text(path.read_text().replace('NumberOfElements="12"', 'NumberOfElements="12" BaseOffset="1"'))
+    with pytest.raises(UnsupportedMeshError, match="the Topology's BaseOffset is 1 but a corner number is 0; "
+                                                   "write the BaseOffset"):
+        Series(path).read(0)
+
+
+@pytest.mark.parametrize("form, message", [
+    ({"geometry": "X_Y_Z"}, r"GeometryType is X_Y_Z \(one DataItem per coordinate\), which is not read; write the "
+                            r"points as one DataItem of n x 3 values \(GeometryType XYZ\)"),
+    ({"topology": f'<Topology TopologyType="2DCoRectMesh" Dimensions="{NY + 1} {NX + 1}"/>'},
+     r"Topology is 2DCoRectMesh \(a structured grid with no corner numbers stored\), which is not read; write "
+     r"the grid as points"),
+])
+def test_forms_meshio_does_not_read_are_named_with_what_to_write(tmp_path, form, message):
+    """Forms of the specification [spec] meshio does not read: the form is named, not a truncated file."""
+    path = _write(tmp_path, **form)
+    with pytest.raises(UnsupportedMeshError, match=message) as caught:
+        Series(path).read(0)
+    assert "truncated" not in str(caught.value) and "damaged" not in str(caught.value)
