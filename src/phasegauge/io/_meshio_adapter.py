@@ -446,6 +446,8 @@ def _checked_mesh(mesh: Mesh, raw, where: str) -> Mesh:
     points = np.zeros((n_unique, 3))
     points[inverse] = mesh.points
     merged = Mesh(points, blocks, point_merge=inverse, pieces=getattr(raw, "cell_pieces", None))
+    if getattr(raw, "joined_blocks", 0) >= 2:  # a multiblock's blocks share their seams' points: the join
+        return merged
     warnings.warn(MeshWarning(f"{mesh.n_points - n_unique} duplicate points merged (cells share their corners "
                               "now); point fields are averaged over the copies", where=where), stacklevel=3)
     return merged

@@ -28,6 +28,11 @@ __all__ = ["FORMATS", "MultiblockBlocks", "multiblock_blocks", "multiblock_data_
 #: suffixes of the blocks read as volume pieces
 VOLUME_SUFFIXES = (".vtu", ".vti", ".vtr", ".vts")
 
+#: points of two blocks on their boxes' faces closer than this share of the joined domain's longest
+#: side are one point of a seam (:func:`seams_made_equal`): far above the rounding of coordinates
+#: that each rank computes its own way (a few units in the last place), far below any cell
+SEAM_TOLERANCE = 1e-9
+
 
 @dataclass(frozen=True)
 class MultiblockBlocks:
@@ -125,15 +130,63 @@ def read_multiblock(path: str):
         points.append(np.asarray(piece.points, dtype=np.float64))
         cells.extend((b.type, np.asarray(b.data) + offset) for b in piece.cells)
         offset += len(piece.points)
+    points = seams_made_equal(points)
     point_data = {name: np.concatenate([np.asarray(p.point_data[name]) for p in pieces])
                   for name in pieces[0].point_data if _shared(pieces, "point_data", name)}
     cell_data = {name: [np.asarray(a) for p in pieces for a in p.cell_data[name]]
                  for name in pieces[0].cell_data if _shared(pieces, "cell_data", name)}
-    joined = new_mesh(np.concatenate(points), cells, point_data=point_data, cell_data=cell_data,
+    joined = new_mesh(points, cells, point_data=point_data, cell_data=cell_data,
                       field_data=dict(pieces[0].field_data or {}))
+    joined.joined_blocks = len(pieces)  # their seams' points merge as the join, not as duplicates
     if any(getattr(p, "cell_pieces", None) for p in pieces):  # cells a reader split stay marked per block
         joined.cell_pieces = [mark for p in pieces
                               for mark in (getattr(p, "cell_pieces", None) or [None] * len(p.cells))]
+    return joined
+
+
+def seams_made_equal(points: list) -> np.ndarray:
+    """The blocks' points joined, the points of a seam between blocks made exactly equal.
+
+    A domain decomposition writes the points of a seam once in each block; where each rank
+    computes its coordinates its own way (``i h`` on one, ``x0 + j h`` on the next) they differ
+    in the last place, and merged only when equal the seam would stay open: a droplet across it
+    counted twice, the seam taken for an open boundary. Points of a block that lie on its box's
+    faces (where the seams of a box-wise decomposition lie; a graph partition's ranks write the
+    global mesh's own coordinates, equal already) are searched for others within
+    :data:`SEAM_TOLERANCE` of the domain's size (scipy's tree); each group so linked takes the
+    coordinates of its first point. The mesh then merges the equal copies as it merges any.
+    """
+    joined = np.concatenate(points)
+    if len(points) < 2 or joined.shape[0] < 2:
+        return joined
+    extent = joined.max(axis=0) - joined.min(axis=0)
+    tolerance = SEAM_TOLERANCE * float(extent.max())
+    if not tolerance > 0:
+        return joined
+    on_faces, start = [], 0
+    for block in points:
+        if block.shape[0]:
+            lo, hi = block.min(axis=0), block.max(axis=0)
+            near = np.zeros(block.shape[0], dtype=bool)
+            for axis in np.flatnonzero(hi - lo > tolerance):  # a flat axis (2D) has no faces to seam
+                near |= (block[:, axis] - lo[axis] <= tolerance) | (hi[axis] - block[:, axis] <= tolerance)
+            on_faces.append(start + np.flatnonzero(near))
+        start += block.shape[0]
+    found = np.concatenate(on_faces)
+    if found.size < 2:
+        return joined
+    from scipy.sparse import coo_matrix
+    from scipy.sparse.csgraph import connected_components
+    from scipy.spatial import cKDTree
+
+    pairs = cKDTree(joined[found]).query_pairs(tolerance, output_type="ndarray")
+    if pairs.size == 0:
+        return joined
+    links = coo_matrix((np.ones(pairs.shape[0]), (pairs[:, 0], pairs[:, 1])), shape=(found.size,) * 2)
+    count, group = connected_components(links, directed=False)
+    first = np.full(count, found.size)
+    np.minimum.at(first, group, np.arange(found.size))  # each group's first point (the earliest block's)
+    joined[found] = joined[found[first[group]]]
     return joined
 
 
