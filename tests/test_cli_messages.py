@@ -106,3 +106,20 @@ def test_the_command_turns_numpys_huge_page_advice_off_unless_the_user_set_it(mo
     if read == "gone":
         pytest.skip("this numpy has no _get_madvise_hugepage")
     assert read == "False"
+
+
+def test_output_into_a_closed_pipe_ends_quietly(tmp_path):
+    # `phasegauge inspect ... | head -1`: the reader closes the pipe; the command ends with status 1 and
+    # no "internal error" (the Python documentation's note on SIGPIPE gives the way: stdout to the null
+    # device); the operating system's pipe is the outside check
+    import subprocess
+    import sys
+
+    series = _series(tmp_path, steps=3)
+    proc = subprocess.Popen([sys.executable, "-m", "phasegauge", "inspect", series], stdout=subprocess.PIPE,
+                            stderr=subprocess.PIPE, env={**os.environ, "MPLBACKEND": "Agg"})
+    proc.stdout.close()  # closed before the command writes (its start takes far longer)
+    err = proc.stderr.read().decode()
+    proc.stderr.close()
+    assert proc.wait(timeout=120) == 1
+    assert "internal error" not in err and "Traceback" not in err and "BrokenPipe" not in err

@@ -9,6 +9,7 @@ from __future__ import annotations
 
 import json
 import os
+import sys
 import warnings
 
 import click
@@ -40,6 +41,13 @@ class _Group(click.Group):
             ctx.exit(err.exit_status)
         except (click.exceptions.Exit, click.exceptions.Abort, click.ClickException):
             raise
+        except BrokenPipeError:
+            # the reader of the output went away (``| head``): nothing more can be shown; stdout is
+            # pointed at the null device so Python's own flush at exit does not fail again (the
+            # way the Python documentation's note on SIGPIPE gives), and the status is a failure
+            devnull = os.open(os.devnull, os.O_WRONLY)
+            os.dup2(devnull, sys.stdout.fileno())
+            ctx.exit(1)
         except KeyboardInterrupt:
             hint = "; rerun with --resume to finish" if ctx.invoked_subcommand in ("measure", "run") else ""
             click.echo(f"phasegauge: interrupted{hint}", err=True)

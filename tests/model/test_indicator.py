@@ -63,6 +63,19 @@ def test_range_warning_for_order_parameter_mapped_as_fraction():
         make_indicator(m, StepFields(point_data={"phi": phi}), "phi", range=(-1, 1))
 
 
+@pytest.mark.parametrize("low, high, suggested", [(1.69e-8, 100.0, "0,100"), (0.0, 99.97, "0,100"),
+                                                  (0.0, 255.0, "0,255"), (300.0, 1000.0, "300,1000")])
+def test_range_warning_suggests_the_scale_not_the_extremes(low, high, suggested):
+    # a percentage whose smallest value is a solver's round-off (1.69e-8): the scale is [0, 100]
+    # (the mapping it gives is checked by hand: c = value / 100 at the two ends)
+    m = grid_mesh((2, 2))
+    values = np.linspace(low, high, m.n_points)
+    with pytest.warns(RangeWarning, match=f"for example --range {suggested};"):
+        make_indicator(m, StepFields(point_data={"v": values}), "v", range=(0, 1))
+    lo, hi = (float(x) for x in suggested.split(","))
+    assert np.allclose(map_to_indicator(np.array([lo, hi]), (lo, hi)), [0.0, 1.0])
+
+
 def test_field_errors_name_the_fix():
     m = grid_mesh((2, 2))
     fields = StepFields(point_data={"U": np.zeros((m.n_points, 3)), "p": np.zeros(m.n_points)})

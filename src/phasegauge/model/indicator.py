@@ -29,6 +29,7 @@ from __future__ import annotations
 
 import difflib
 import re
+import math
 import warnings
 from dataclasses import dataclass
 
@@ -330,6 +331,17 @@ def check_range(values: np.ndarray, value_range, *, name: str = "", where: str =
 
 
 def _round_range(vmin: float, vmax: float) -> str:
+    """A range to suggest for values spanning [vmin, vmax]: [-1, 1] for an order parameter, else each
+    end rounded to a hundredth of the span's order of magnitude, and to 0 within 5 % of the span (a
+    percentage in [1.7e-8, 99.9] is suggested as 0,100, not its own extremes)."""
     if vmin >= -1.1 and vmin < -0.5 and vmax <= 1.1:
         return "-1,1"
-    return f"{vmin:.3g},{vmax:.3g}"
+    span = vmax - vmin
+    if not span > 0:
+        return f"{vmin:.3g},{vmax:.3g}"
+    step = 10.0 ** (math.floor(math.log10(span)) - 2)
+
+    def rounded(v: float) -> float:
+        return 0.0 if abs(v) <= 0.05 * span else round(v / step) * step
+
+    return f"{rounded(vmin):.6g},{rounded(vmax):.6g}"
