@@ -142,8 +142,8 @@ def inspect(path, as_json, scan, sort_by_time):
     """Describe a series: steps, times, mesh and fields.
 
     PATH is a mesh file (.vtu, .vtk, .xdmf, .xmf; structured .vti, .vtr, .vts
-    and legacy structured .vtk through VTK's readers; VTK multiblock .vtm), an
-    XDMF time series, a folder of numbered files, a folder of step folders, a
+    and legacy structured .vtk through VTK's readers; VTK multiblock .vtm and
+    parallel .pvtu, .pvti, .pvtr, .pvts files; not .pvd collections), an XDMF time series, a folder of numbered files, a folder of step folders, a
     quoted glob or a 'time,path' step listing (.steps, .txt, .csv, .list).
     """
     from .io.describe import describe_series, format_description

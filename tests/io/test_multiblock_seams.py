@@ -9,6 +9,7 @@ fractions times the cell areas, the droplets scipy's connected components of the
 import warnings
 
 import numpy as np
+import pytest
 import pyvista
 
 import phasegauge
@@ -60,3 +61,32 @@ def test_seam_points_made_equal_and_no_others():
     assert joined[8].tolist() == [1.0 + 1e-6, 1.0, 0.0]  # 1e-6 of a side-2 domain: beyond the tolerance
     assert 1e-6 > SEAM_TOLERANCE * 2.0
     assert np.array_equal(joined[:5], a) and np.array_equal(joined[6:8], b[1:3])
+
+
+def test_a_seam_one_single_precision_spacing_apart_joins(tmp_path):
+    # blocks written in single precision (as many converters do): rank 1's seam lies one float32
+    # spacing beyond rank 0's (numpy's nextafter), over twenty times 1e-9 of the domain's size
+    blocks = []
+    for xs in (np.arange(31) * H, 3e-5 + np.arange(31) * H):
+        block = _block(xs)
+        block.points = block.points.astype(np.float32)
+        blocks.append(block)
+    seam = np.float32(blocks[0].points[:, 0].max())
+    x = blocks[1].points[:, 0]
+    x[x == x.min()] = np.nextafter(seam, np.float32(1.0))
+    blocks[1].points[:, 0] = x
+    assert blocks[1].points[:, 0].min() - seam > 20 * SEAM_TOLERANCE * 60 * H
+    pyvista.MultiBlock(blocks).save(tmp_path / "f32.vtm")
+    result = phasegauge.measure(str(tmp_path / "f32.vtm"), "alpha", analyses=("conservation", "droplets"))
+    assert int(result.steps["droplet_count"].iloc[0]) == 1
+
+
+def test_duplicates_inside_a_block_still_warned_of(tmp_path):
+    # block 0 stores every cell's corners apart (VTK's separate_cells); only its own copies are
+    # counted, not the seam's points that block 1 shares
+    first = _block(np.arange(31) * H).separate_cells()
+    second = _block(3e-5 + np.arange(31) * H)
+    pyvista.MultiBlock([first, second]).save(tmp_path / "apart.vtm")
+    own = first.n_points - 31 * 61  # VTK's copies beyond the 31 x 61 grid points of block 0
+    with pytest.warns(phasegauge.errors.MeshWarning, match=f"^.*: {own} duplicate points merged"):
+        phasegauge.measure(str(tmp_path / "apart.vtm"), "alpha", analyses=("conservation",))

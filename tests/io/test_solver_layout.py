@@ -139,7 +139,7 @@ def test_broken_multiblock_files_name_the_problem(tank, tmp_path):
         Series(patches_only).read(0)
     not_multiblock = tmp_path / "other.vtm"
     not_multiblock.write_text('<?xml version="1.0"?>\n<VTKFile type="UnstructuredGrid"></VTKFile>\n')
-    with pytest.raises(UnreadableFileError, match="not a VTK XML multiblock file"):
+    with pytest.raises(UnreadableFileError, match="not a VTK XML multiblock or parallel file"):
         Series(not_multiblock).read(0)
 
 

@@ -70,3 +70,20 @@ def test_times_single_precision_made_equal_refused_with_the_cause(tmp_path):
 def test_two_times_shown_apart(a, b, shown):
     # Python's float() of each text gives the time back, or tells the two apart
     assert two_times(a, b) == shown
+
+
+def test_a_repeated_step_in_single_precision_is_not_blamed_on_precision(tmp_path):
+    # a restart wrote t = 2 twice, steps of 1 s: single precision's spacing at 2 (2.4e-7) is no share
+    # of the interval, so the fix is the repeated step's
+    series, _ = _messages(_series(tmp_path / "run", [0.0, 1.0, 2.0, 2.0, 3.0], np.float32))
+    text = series.time_problem().one_line()
+    assert "time 2 after 2" in text and "remove the repeated step" in text and "single precision" not in text
+
+
+def test_each_time_judged_against_its_own_interval(tmp_path):
+    # outputs every 1e-3 s up to 0.2 s, then every 10 s up to 260 s: at 260 the spacing (3.1e-5) is
+    # a tiny share of its own 10 s interval, though 3 % of the median interval (1e-3)
+    times = [0.001 * k for k in range(201)] + [0.2 + 10.0 * k for k in range(1, 27)]
+    series, said = _messages(_series(tmp_path / "run", times, np.float32))
+    assert np.spacing(np.float32(260.2)) / 1e-3 > 0.01
+    assert not [line for line in said if "single precision" in line]

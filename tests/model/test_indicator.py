@@ -64,7 +64,9 @@ def test_range_warning_for_order_parameter_mapped_as_fraction():
 
 
 @pytest.mark.parametrize("low, high, suggested", [(1.69e-8, 100.0, "0,100"), (0.0, 99.97, "0,100"),
-                                                  (0.0, 255.0, "0,255"), (300.0, 1000.0, "300,1000")])
+                                                  (1.7e-8, 99.9, "0,100"), (-1e-9, 100.0, "0,100"),
+                                                  (0.0, 255.0, "0,255"), (300.0, 1000.0, "300,1000"),
+                                                  (-3.456, 12.34, "-3.5,12.4")])
 def test_range_warning_suggests_the_scale_not_the_extremes(low, high, suggested):
     # a percentage whose smallest value is a solver's round-off (1.69e-8): the scale is [0, 100]
     # (the mapping it gives is checked by hand: c = value / 100 at the two ends)

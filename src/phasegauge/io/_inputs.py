@@ -38,14 +38,14 @@ def input_files(series, known_sha256: dict | None = None) -> list:
         exists (``"sha256"`` is None for a file that cannot be read), in order: the listing, the step files (each multiblock file followed by its
         volume blocks), the data files.
     """
-    from ._multiblock import multiblock_data_files
+    from ._multiblock import is_index_file, multiblock_data_files
     from ._xdmf import xdmf_data_files
 
     known = known_sha256 or {}
     files = []
     for f in series.files:
         files.append(f)
-        if f.lower().endswith(".vtm"):
+        if is_index_file(f):
             files += multiblock_data_files(f)
     if series.kind == "collection":  # given as the collection's file or as a folder holding only it
         files += xdmf_data_files(series.files[0])

@@ -427,6 +427,29 @@ def _average_merged(values: np.ndarray, merge: np.ndarray, n: int) -> np.ndarray
     return mean.reshape((n,) + values.shape[1:])
 
 
+#: points stored in single precision placed no closer than this share of the median cell size are
+#: warned of (our threshold: the cells' sizes, volumes and the widths then err by about that share)
+SINGLE_POINTS_SHARE = 0.01
+
+
+def _warn_single_precision_points(mesh: Mesh, raw, where: str) -> None:
+    """Warn (:class:`MeshWarning`) when single-precision points far from the origin against the cell size
+    (coordinates near 1e3 with cells of 1e-3) are placed only to a share of a cell."""
+    if np.asarray(raw.points).dtype != np.float32 and not getattr(raw, "single_precision_points", False):
+        return
+    used = mesh.points[mesh.used_points]
+    if used.size == 0:
+        return
+    far = float(np.abs(used).max())
+    spacing = float(np.spacing(np.float32(far)))
+    size = float(np.median(mesh.cell_sizes))
+    if size > 0 and spacing > SINGLE_POINTS_SHARE * size:
+        warnings.warn(MeshWarning(f"the points are stored in single precision: near |x| = {far:.4g} they are placed "
+                                  f"only to {spacing:.2g}, {spacing / size:.1%} of the median cell size ({size:.2g}), so "
+                                  "cell sizes, volumes and widths err by about that share; write the points in double "
+                                  "precision (or nearer the origin)", where=where), stacklevel=4)
+
+
 def _checked_mesh(mesh: Mesh, raw, where: str) -> Mesh:
     """Check a newly built mesh; merge coincident points."""
     if mesh.dimension == 2:
@@ -439,6 +462,7 @@ def _checked_mesh(mesh: Mesh, raw, where: str) -> Mesh:
     if bad:
         raise UnsupportedMeshError(f"{bad} points of the cells have NaN or Inf coordinates", where=where,
                                    fix="the file is damaged or the mesh motion diverged; write the step again")
+    _warn_single_precision_points(mesh, raw, where)
     inverse, n_unique = coincident_points(mesh.points)
     if n_unique == mesh.n_points:
         return mesh
@@ -446,9 +470,14 @@ def _checked_mesh(mesh: Mesh, raw, where: str) -> Mesh:
     points = np.zeros((n_unique, 3))
     points[inverse] = mesh.points
     merged = Mesh(points, blocks, point_merge=inverse, pieces=getattr(raw, "cell_pieces", None))
-    if getattr(raw, "joined_blocks", 0) >= 2:  # a multiblock's blocks share their seams' points: the join
-        return merged
-    warnings.warn(MeshWarning(f"{mesh.n_points - n_unique} duplicate points merged (cells share their corners "
+    duplicates = mesh.n_points - n_unique
+    sizes = getattr(raw, "block_sizes", None)
+    if sizes is not None:  # a multiblock's blocks share their seams' points: merged across blocks, the join
+        block = np.repeat(np.arange(len(sizes)), sizes)
+        duplicates = mesh.n_points - np.unique(inverse.astype(np.int64) * len(sizes) + block).size
+        if duplicates == 0:
+            return merged
+    warnings.warn(MeshWarning(f"{duplicates} duplicate points merged (cells share their corners "
                               "now); point fields are averaged over the copies", where=where), stacklevel=3)
     return merged
 

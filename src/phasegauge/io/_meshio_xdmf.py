@@ -53,6 +53,9 @@ def _time_series_reader(path: str):
     except Exception as exc:
         raise UnreadableFileError(f"cannot be read as an XDMF time series ({short_text(exc)})", where=path,
                                   fix=_CHECK_FILES) from None
+    for item in reader.domain.iter("DataItem"):  # the XDMF specification's default Format, which meshio needs
+        if item.get("Format") is None:
+            item.set("Format", "XML")
     reader.collection = [node for node in reader.collection if node.tag == "Grid"]
     reader.num_steps = len(reader.collection)
     return reader

@@ -23,10 +23,20 @@ from ..errors import InputFileNotFound, UnreadableFileError
 from ._formats import register_format
 
 __all__ = ["FORMATS", "MultiblockBlocks", "multiblock_blocks", "multiblock_data_files", "read_multiblock",
-           "peek_multiblock_time"]
+           "peek_multiblock_time", "is_index_file", "without_indexed_files", "INDEX_SUFFIXES"]
 
 #: suffixes of the blocks read as volume pieces
 VOLUME_SUFFIXES = (".vtu", ".vti", ".vtr", ".vts")
+
+#: VTK XML files that index other files of one step: a multiblock file, and the parallel files
+#: naming a decomposed step's pieces (``<Piece Source=...>``), read alike
+INDEX_SUFFIXES = (".vtm", ".pvtu", ".pvti", ".pvtr", ".pvts")
+
+#: the parallel files' root types
+_PARALLEL_TYPES = ("PUnstructuredGrid", "PImageData", "PRectilinearGrid", "PStructuredGrid")
+
+#: VTK's ghost-cell mark of a cell another piece owns (``vtkDataSetAttributes::DUPLICATECELL``)
+_DUPLICATE_CELL = 1
 
 #: points of two blocks on their boxes' faces closer than this share of the joined domain's longest
 #: side are one point of a seam (:func:`seams_made_equal`): far above the rounding of coordinates
@@ -69,14 +79,16 @@ def multiblock_blocks(path: str) -> MultiblockBlocks:
     except (ET.ParseError, OSError) as exc:
         raise UnreadableFileError(f"cannot be read as a VTK multiblock file ({exc})", where=path,
                                   fix="check that the file is complete XML (it may be truncated)") from None
-    if root.tag != "VTKFile" or root.get("type") not in ("vtkMultiBlockDataSet", "vtkMultiPieceDataSet"):
-        raise UnreadableFileError(f"is not a VTK XML multiblock file (its root is <{root.tag} "
+    kinds = ("vtkMultiBlockDataSet", "vtkMultiPieceDataSet") + _PARALLEL_TYPES
+    if root.tag != "VTKFile" or root.get("type") not in kinds:
+        raise UnreadableFileError(f"is not a VTK XML multiblock or parallel file (its root is <{root.tag} "
                                   f"type={root.get('type')!r}>)", where=path,
-                                  fix="give a .vtm file written by a VTK writer")
+                                  fix="give a .vtm or .pvtu file written by a VTK writer")
     folder = os.path.dirname(os.path.abspath(path))
     volume, left_out = [], []
-    for node in root.iter("DataSet"):
-        name = node.get("file")
+    parallel = root.get("type") in _PARALLEL_TYPES
+    for node in root.iter("Piece" if parallel else "DataSet"):
+        name = node.get("Source" if parallel else "file")
         if not name:
             continue  # an empty block
         target = name if os.path.isabs(name) else os.path.join(folder, name)
@@ -125,26 +137,51 @@ def read_multiblock(path: str):
     pieces = [read_mesh_file(_volume_file(path, file)) for _, file in blocks.volume]
     if len(pieces) == 1:
         return pieces[0]
+    pieces = [_owned_cells(piece) for piece in pieces]
     points, cells, offset = [], [], 0
+    single = any(np.asarray(p.points).dtype == np.float32 for p in pieces)
     for piece in pieces:
         points.append(np.asarray(piece.points, dtype=np.float64))
         cells.extend((b.type, np.asarray(b.data) + offset) for b in piece.cells)
         offset += len(piece.points)
-    points = seams_made_equal(points)
+    block_sizes = [len(p) for p in points]
+    points = seams_made_equal(points, single_precision=single)
     point_data = {name: np.concatenate([np.asarray(p.point_data[name]) for p in pieces])
                   for name in pieces[0].point_data if _shared(pieces, "point_data", name)}
     cell_data = {name: [np.asarray(a) for p in pieces for a in p.cell_data[name]]
                  for name in pieces[0].cell_data if _shared(pieces, "cell_data", name)}
     joined = new_mesh(points, cells, point_data=point_data, cell_data=cell_data,
                       field_data=dict(pieces[0].field_data or {}))
-    joined.joined_blocks = len(pieces)  # their seams' points merge as the join, not as duplicates
+    joined.block_sizes = block_sizes  # points merged across blocks are the join, not duplicates
+    joined.single_precision_points = single
     if any(getattr(p, "cell_pieces", None) for p in pieces):  # cells a reader split stay marked per block
         joined.cell_pieces = [mark for p in pieces
                               for mark in (getattr(p, "cell_pieces", None) or [None] * len(p.cells))]
     return joined
 
 
-def seams_made_equal(points: list) -> np.ndarray:
+def _owned_cells(piece):
+    """A block without the cells VTK marks as another block's (``vtkGhostType`` with
+    :data:`_DUPLICATE_CELL`: a solver's ghost layer, written again by the block that owns it), and
+    without the mark arrays; a block of cells a reader split (``cell_pieces``) is kept whole."""
+    import meshio
+
+    marks = piece.cell_data.get("vtkGhostType")
+    piece.point_data.pop("vtkGhostType", None)
+    if marks is None or getattr(piece, "cell_pieces", None):
+        return piece
+    keep = [(np.asarray(m).ravel().astype(np.int64) & _DUPLICATE_CELL) == 0 for m in marks]
+    if all(k.all() for k in keep):
+        del piece.cell_data["vtkGhostType"]
+        return piece
+    cells = [(b.type, np.asarray(b.data)[k]) for b, k in zip(piece.cells, keep)]
+    cell_data = {name: [np.asarray(a)[k] for a, k in zip(arrays, keep)]
+                 for name, arrays in piece.cell_data.items() if name != "vtkGhostType"}
+    return meshio.Mesh(piece.points, cells, point_data=dict(piece.point_data), cell_data=cell_data,
+                       field_data=dict(piece.field_data or {}))
+
+
+def seams_made_equal(points: list, *, single_precision: bool = False) -> np.ndarray:
     """The blocks' points joined, the points of a seam between blocks made exactly equal.
 
     A domain decomposition writes the points of a seam once in each block; where each rank
@@ -154,13 +191,17 @@ def seams_made_equal(points: list) -> np.ndarray:
     faces (where the seams of a box-wise decomposition lie; a graph partition's ranks write the
     global mesh's own coordinates, equal already) are searched for others within
     :data:`SEAM_TOLERANCE` of the domain's size (scipy's tree); each group so linked takes the
-    coordinates of its first point. The mesh then merges the equal copies as it merges any.
+    coordinates of its first point. The mesh then merges the equal copies as it merges any. Points
+    a block stored in single precision (``single_precision``) are rounded far more coarsely: the
+    tolerance is then at least two of single precision's spacings at the largest coordinate.
     """
     joined = np.concatenate(points)
     if len(points) < 2 or joined.shape[0] < 2:
         return joined
     extent = joined.max(axis=0) - joined.min(axis=0)
     tolerance = SEAM_TOLERANCE * float(extent.max())
+    if single_precision:
+        tolerance = max(tolerance, 2.0 * float(np.spacing(np.float32(np.abs(joined).max()))))
     if not tolerance > 0:
         return joined
     on_faces, start = [], 0
@@ -214,4 +255,19 @@ def peek_multiblock_time(path: str):
     return peek_time(first) if os.path.exists(first) else None
 
 
-FORMATS = (register_format("vtm", (".vtm",), read=read_multiblock, peek_time=peek_multiblock_time),)
+def without_indexed_files(files: list) -> list:
+    """``files`` without those an index file among them names: the pieces of a parallel step written
+    beside its ``.pvtu`` (or a multiblock's blocks beside it) are read through their index only."""
+    named = set()
+    for f in files:
+        if is_index_file(f):
+            named.update(os.path.abspath(block) for block in multiblock_data_files(f))
+    return [f for f in files if os.path.abspath(f) not in named] if named else files
+
+
+def is_index_file(path) -> bool:
+    """True for a VTK XML file that indexes the files of one step (:data:`INDEX_SUFFIXES`)."""
+    return os.fspath(path).lower().endswith(INDEX_SUFFIXES)
+
+
+FORMATS = (register_format("vtm", INDEX_SUFFIXES, read=read_multiblock, peek_time=peek_multiblock_time),)

@@ -36,10 +36,12 @@ from ..model.mesh import Mesh
 from ._formats import (TIME_NEEDS_FULL_READ, check_readable, format_for, peek_time, read_mesh_file, stored_time,
                        suffix_list, surface_file_problem)
 from ._mesh_pool import MeshPool
+from ._multiblock import without_indexed_files
 from ._meshio_adapter import StepFields, mesh_and_fields
 from ._meshio_xdmf import XdmfTimeSeries
 from ._claims import CheckedFiles, check_hdf5_claims
-from ._series_gaps import two_times, warn_series_gaps, warn_time_resolution
+from ._series_gaps import (RESOLUTION_SHARE, coarse_time_share, two_times, warn_series_gaps,
+                           warn_time_resolution)
 from ._series_names import check_one_family, digits_masked, first_three, natural_key, warn_decimal_doubt
 from ._xdmf import collection_times, grid_time, lone_collection, temporal_grids, xdmf_data_files
 
@@ -272,6 +274,7 @@ class Series:
         if os.path.isdir(path):
             files = sorted((os.path.join(path, f) for f in os.listdir(path) if _is_mesh_file(os.path.join(path, f))),
                            key=natural_key)
+            files = without_indexed_files(files)
             collection = lone_collection(files, path)
             if collection is not None:  # a folder of one XDMF time collection (and its HDF5 files)
                 return self._collection_steps(collection, temporal_grids(collection))
@@ -298,7 +301,7 @@ class Series:
                 warn_series_gaps(files, path, steps)
             return steps
         if any(ch in path for ch in "*?[") and not os.path.exists(path):
-            files = sorted((f for f in globmod.glob(path) if _is_mesh_file(f)), key=natural_key)
+            files = without_indexed_files(sorted((f for f in globmod.glob(path) if _is_mesh_file(f)), key=natural_key))
             if not files:
                 raise SeriesError("the pattern matches no mesh files", where=path,
                                   fix="check the pattern; quote it so the shell does not expand it")
@@ -326,6 +329,10 @@ class Series:
             grids = temporal_grids(path)
             if grids is not None:
                 return self._collection_steps(path, grids)
+        if path.lower().endswith(".pvd"):
+            raise UnreadableFileError("is a .pvd collection of step files, which is not read", where=path,
+                                      fix="give the folder of the step files, a quoted glob of them, or a 'time,path' "
+                                          "listing of the steps")
         if not _is_mesh_file(path):
             surface = surface_file_problem(path)
             if surface is not None:
@@ -398,13 +405,14 @@ class Series:
         Steps whose time is unknown (unreadable files) are left out of the check.
         """
         known = [s for s in self.steps if np.isfinite(s.time)]
+        coarse = coarse_time_share(self.steps) >= RESOLUTION_SHARE
         for before, after in zip(known[:-1], known[1:]):
             if after.time <= before.time:
                 if self.kind == "listing":
                     fix = f"correct the times in {os.path.basename(self.path)} or remove the repeated step"
                 elif self.kind == "collection":
                     fix = "remove the repeated or out-of-order grids (a restart may have written them twice)"
-                elif abs(after.time - before.time) < max(before.time_resolution, after.time_resolution):
+                elif coarse and abs(after.time - before.time) < max(before.time_resolution, after.time_resolution):
                     fix = (f"the files store the times in single precision, which tells times near {after.time:.8g} "
                            f"apart only to {after.time_resolution:.2g}: write them in double precision, or give a "
                            "'time,path' listing")

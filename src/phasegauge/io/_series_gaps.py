@@ -17,7 +17,7 @@ from ..errors import SeriesWarning
 from ._series_names import INTERVAL_TOLERANCE, NAME_NUMBER, first_three, name_number
 
 __all__ = ["numbering_gaps", "output_interval", "time_gaps", "warn_series_gaps", "warn_time_resolution", "two_times",
-           "INTERVAL_TOLERANCE", "RESOLUTION_SHARE"]
+           "coarse_time_share", "INTERVAL_TOLERANCE", "RESOLUTION_SHARE"]
 
 #: times stored to a resolution of this share of the step interval or more are warned of: the
 #: intervals, and every rate per time, may be off by that share (our threshold)
@@ -34,19 +34,27 @@ def two_times(a: float, b: float) -> tuple:
 
 
 def _coarse_times(steps: list):
-    """``(step, share, interval)``: the step whose stored time's resolution is the largest share of the
-    median step interval, that share and that interval; None when no time is stored coarsely or the
-    times do not increase."""
-    coarse = [s for s in steps if s.time_resolution > 0 and np.isfinite(s.time)]
-    if not coarse:
+    """``(step, share, interval)``: the step whose stored time's resolution is the largest share of
+    its own interval (the shorter of those to its neighbours in time), that share and that interval;
+    None when no time is stored coarsely or the times do not increase anywhere."""
+    known = [s for s in steps if np.isfinite(s.time)]
+    if not any(s.time_resolution > 0 for s in known) or len(known) < 2:
         return None
-    intervals = np.diff(np.array([s.time for s in steps if np.isfinite(s.time)]))
-    intervals = intervals[intervals > 0]
-    if intervals.size == 0:
-        return None  # the times do not increase: that is reported, with its cause
-    interval = float(np.median(intervals))
-    worst = max(coarse, key=lambda s: s.time_resolution)
-    return worst, worst.time_resolution / interval, interval
+    times = np.array([s.time for s in known])
+    gaps = np.diff(times)
+    gaps = np.where(gaps > 0, gaps, np.nan)  # repeated or reversed times are reported, with their cause
+    local = np.fmin(np.r_[np.nan, gaps], np.r_[gaps, np.nan])  # each step's shorter neighbouring interval
+    share = np.array([s.time_resolution for s in known]) / local
+    if not np.isfinite(share).any():
+        return None
+    worst = int(np.nanargmax(share))
+    return known[worst], float(share[worst]), float(local[worst])
+
+
+def coarse_time_share(steps: list) -> float:
+    """The largest share of a step's own interval that its stored time's resolution is (0: none)."""
+    found = _coarse_times(steps)
+    return 0.0 if found is None else found[1]
 
 
 def warn_time_resolution(steps: list, where: str) -> None:
@@ -151,8 +159,7 @@ def warn_series_gaps(files: list, where: str, steps: list) -> None:
         known = np.array([s.time for s in steps if np.isfinite(s.time)])
         if np.any(np.diff(known) <= 0):
             return  # times out of order: the order is reported (or sorted) instead
-        coarse = _coarse_times(steps)
-        if coarse is not None and coarse[1] >= RESOLUTION_SHARE:
+        if coarse_time_share(steps) >= RESOLUTION_SHARE:
             return  # the times' storage is warned of: their jumps are its rounding
         gaps, interval = time_gaps(known)
         # a jump across steps whose files could not be read is those steps, not missing ones (their

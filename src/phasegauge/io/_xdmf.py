@@ -41,8 +41,13 @@ def temporal_grids(path: str):
     except (ET.ParseError, OSError) as exc:
         raise UnreadableFileError(f"not a readable XDMF file ({exc})", where=path,
                                   fix="check that the file is complete XML") from None
-    collection = _temporal_collection(root)
-    return None if collection is None else [g for g in collection if g.tag == "Grid"]
+    collections = [grid for grid in root.iter("Grid")
+                   if grid.get("GridType") == "Collection" and grid.get("CollectionType") == "Temporal"]
+    if len(collections) > 1:  # one a field, as some writers do: which grid a step's field is in is not clear
+        raise SeriesError(f"the file holds {len(collections)} time collections, which is not read (meshio reads one)",
+                          where=path, fix="write one time collection whose grids hold every field, or one file "
+                                          "a collection, and give that file")
+    return None if not collections else [g for g in collections[0] if g.tag == "Grid"]
 
 
 def _temporal_collection(root):

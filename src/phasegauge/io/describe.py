@@ -178,9 +178,10 @@ def _field_copies(stats: dict) -> dict:
 
 def _left_out_blocks(path: str) -> list:
     """Names of the blocks of a multiblock step file that are not read (boundary patches)."""
-    if not path.lower().endswith(".vtm"):
+    from ._multiblock import is_index_file, multiblock_blocks
+
+    if not is_index_file(path):
         return []
-    from ._multiblock import multiblock_blocks
 
     try:
         return multiblock_blocks(path).left_out_names()

@@ -332,16 +332,19 @@ def check_range(values: np.ndarray, value_range, *, name: str = "", where: str =
 
 def _round_range(vmin: float, vmax: float) -> str:
     """A range to suggest for values spanning [vmin, vmax]: [-1, 1] for an order parameter, else each
-    end rounded to a hundredth of the span's order of magnitude, and to 0 within 5 % of the span (a
-    percentage in [1.7e-8, 99.9] is suggested as 0,100, not its own extremes)."""
+    end rounded outward to a hundredth of the span's order of magnitude, the low end to 0 within 5 %
+    of the span of it (round-off below 0 included), the high end up to the next power of ten within
+    5 % of the span (a percentage in [1.7e-8, 99.9] is suggested as 0,100, not its own extremes)."""
     if vmin >= -1.1 and vmin < -0.5 and vmax <= 1.1:
         return "-1,1"
     span = vmax - vmin
     if not span > 0:
         return f"{vmin:.3g},{vmax:.3g}"
     step = 10.0 ** (math.floor(math.log10(span)) - 2)
-
-    def rounded(v: float) -> float:
-        return 0.0 if abs(v) <= 0.05 * span else round(v / step) * step
-
-    return f"{rounded(vmin):.6g},{rounded(vmax):.6g}"
+    low = 0.0 if abs(vmin) <= 0.05 * span else math.floor(vmin / step) * step
+    high = math.ceil(vmax / step) * step
+    if vmax > 0:
+        power = 10.0 ** math.ceil(math.log10(vmax))
+        if power - vmax <= 0.05 * span:
+            high = power
+    return f"{low:.6g},{high:.6g}"

@@ -16,13 +16,17 @@ from dataclasses import dataclass, replace
 
 import numpy as np
 
-__all__ = ["MeshOutline", "DOMAIN_TOLERANCE"]
+__all__ = ["MeshOutline", "DOMAIN_TOLERANCE", "DISJOINT_SHARE"]
 
 #: a domain's box, volume or centroid moving by more than this share (of its longest side, or of
-#: its volume) between meshes is a different domain (:meth:`MeshOutline.domain_change`): far
-#: above what remeshing the same domain moves (a boundary's facets, about a cell), far below
-#: what splitting it in pieces moves (a share of the domain)
+#: its volume) between meshes is a change of the domain (:meth:`MeshOutline.domain_change`): far
+#: above what remeshing the same domain moves (a boundary's facets, about a cell)
 DOMAIN_TOLERANCE = 0.05
+
+#: two meshes whose boxes share less than this share of the smaller box (along each axis that is
+#: not flat) lie side by side: the pieces of one domain, not one domain at two times
+#: (:meth:`MeshOutline.side_by_side`); a wall or a frame that moves between outputs keeps most
+DISJOINT_SHARE = 0.5
 
 
 def _domain(mesh) -> tuple:
@@ -76,6 +80,15 @@ class MeshOutline:
                 mesh.bounds, whole_cell_centroids(mesh), mesh.cell_parents, measure, centre))
         return cls(mesh.signature, int(mesh.n_cells), int(mesh.dimension), tuple(mesh.plane_axes), mesh.bounds,
                    measure=measure, centre=centre)
+
+    def side_by_side(self, other: "MeshOutline") -> bool:
+        """True when the two meshes' boxes share less than :data:`DISJOINT_SHARE` of the smaller box
+        along some axis that is not flat in both (two pieces of a box-wise decomposition share 0)."""
+        lo = np.maximum(self.bounds[0], other.bounds[0])
+        hi = np.minimum(self.bounds[1], other.bounds[1])
+        smaller = np.minimum(self.bounds[1] - self.bounds[0], other.bounds[1] - other.bounds[0])
+        solid = smaller > 0
+        return bool(np.any(np.maximum(hi - lo, 0.0)[solid] < DISJOINT_SHARE * smaller[solid]))
 
     def domain_change(self, other: "MeshOutline") -> str | None:
         """How the domain of ``other`` differs from this one's, in words, or None (the same domain).

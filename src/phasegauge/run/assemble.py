@@ -56,9 +56,11 @@ class Finding:
 
 
 # ------------------------------------------------------------------ tracking, in step order
-def domain_refusal(before, after) -> SeriesError | None:
-    """The error when analysed steps ``before`` and ``after`` (results, in order) cover different
-    domains (:meth:`MeshOutline.domain_change`), else None.
+def domain_refusal(before, after):
+    """How analysed steps ``before`` and ``after`` (results, in order) cover different domains:
+    a :class:`SeriesError` when their boxes lie side by side (:meth:`MeshOutline.side_by_side`), a
+    warning record ``(category, what, where)`` when the domain changed otherwise
+    (:meth:`MeshOutline.domain_change`: a moving wall or frame, a growing region), else None.
 
     The files of a parallel run's pieces (``processor1/out_0001.vtu``, ``out_0001_1.vtu``) are named
     like steps, and measured so each piece was a step: half the phase volume, droplets jumping
@@ -69,11 +71,17 @@ def domain_refusal(before, after) -> SeriesError | None:
     change = before.outline.domain_change(after.outline)
     if change is None:
         return None
-    return SeriesError(f"the domain changes between step {before.index} and step {after.index} ({change}), so the "
-                       "files look like pieces of a parallel run (a domain decomposition), not steps of one domain",
-                       where=f"{after.path}, step {after.index}",
-                       fix="give one file a step: join each step's pieces into one file or a .vtm multiblock file "
-                           "(a domain that truly moves between outputs is not measured as one series)")
+    where = f"{after.path}, step {after.index}"
+    if before.outline.side_by_side(after.outline):
+        return SeriesError(f"the domain changes between step {before.index} and step {after.index} ({change}; the "
+                           "two lie side by side), so the files look like pieces of a parallel run (a domain "
+                           "decomposition), not steps of one domain", where=where,
+                           fix="give one file a step: join each step's pieces into one file or a .vtm multiblock "
+                               "file (a domain that moves by more than half its size between outputs is not "
+                               "measured as one series)")
+    return (SeriesWarning, f"the domain changes between step {before.index} and step {after.index} ({change}): a "
+                           "moving or deforming mesh, or pieces of a parallel run named like steps; phase-volume "
+                           "drift across it includes the change", where)
 
 
 class TrackingFeed:
@@ -111,6 +119,7 @@ class TrackingFeed:
         self._dimension = None
         self._cache = cache
         self._previous = None  # the analysed step linked last, of the first analysed step's dimension
+        self.domain_notes: list = []  # (category, what, where) of changes of the domain between steps
 
     def add(self, result, *, link: bool = True) -> None:
         """Take one step's result; with ``link``, link every step that is now next in order.
@@ -205,9 +214,11 @@ class TrackingFeed:
         if before is not None and before.dimension != result.dimension:
             return  # skipped by the series level (a dimension of its own)
         if before is not None:
-            error = domain_refusal(before, result)
-            if error is not None:
-                raise error
+            found = domain_refusal(before, result)
+            if isinstance(found, SeriesError):
+                raise found
+            if found is not None:
+                self.domain_notes.append(found)
         self._previous = result
 
     def tables(self):
@@ -291,7 +302,11 @@ def assemble(series, results: list, options, *, notes=(), feed: TrackingFeed | N
             r.skipped, r.error, r.warning_records = err.one_line(), err, []
     done = [r for r in results if r.skipped is None]
     skipped = [r.skipped for r in results if r.skipped is not None]
-    records = list(notes) + _mesh_change_records(series, done)
+    if feed is None:
+        feed = TrackingFeed(options, [r.index for r in results])
+        for r in results:
+            feed.add(r)
+    records = list(notes) + _mesh_change_records(series, done) + feed.domain_notes
     records += [(SkippedStepWarning, f"step skipped: {r.error.what}; {r.error.fix}", r.error.where)
                 if r.error is not None else (SkippedStepWarning, f"step skipped: {r.skipped}", "")
                 for r in results if r.skipped is not None]
@@ -307,10 +322,6 @@ def assemble(series, results: list, options, *, notes=(), feed: TrackingFeed | N
     droplets = pd.DataFrame()
     events = pd.DataFrame(columns=list(EVENT_COLUMNS))
     if "droplets" in options.analyses:
-        if feed is None:
-            feed = TrackingFeed(options, [r.index for r in results])
-            for r in results:
-                feed.add(r)
         droplets, events = feed.tables()
     profiles = pd.concat([r.profile for r in done if r.profile is not None], ignore_index=True) \
         if any(r.profile is not None for r in done) else pd.DataFrame()

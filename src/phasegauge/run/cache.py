@@ -145,7 +145,9 @@ class StepCache:
     def _data_stamp(self, info) -> str:
         """Size and modification time of the files a step reads besides its own: the HDF5 files of an
         XDMF step, the volume blocks of a multiblock (``.vtm``) step ('' for other steps)."""
-        multiblock = info.path.lower().endswith(".vtm")
+        from ..io._multiblock import is_index_file
+
+        multiblock = is_index_file(info.path)
         if info.grid is None and not multiblock:
             return ""
         from ..io import multiblock_data_files, xdmf_data_files
