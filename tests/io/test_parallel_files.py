@@ -11,7 +11,7 @@ import pytest
 import pyvista
 
 import phasegauge
-from phasegauge.errors import UnreadableFileError, UnsupportedMeshError
+from phasegauge.errors import InputFileNotFound, UnreadableFileError, UnsupportedMeshError
 from phasegauge.io import Series
 from phasegauge.io._multiblock import without_indexed_files
 
@@ -88,3 +88,24 @@ def test_files_named_by_an_index_left_out_of_a_folder(tmp_path):
     index = _pvtu(tmp_path, 0)
     files = sorted(str(p) for p in tmp_path.iterdir())
     assert without_indexed_files(files) == [str(index)]
+
+
+def test_ghost_cells_and_a_seam_rounded_apart(tmp_path):
+    # block 1 writes the seam x = 0.5 a rounding (1e-13) beyond block 0's, and both carry a ghost
+    # layer: once the ghosts go, the seam is on each block's own box again, and is joined
+    pieces = _pieces(ghost_layer=1)
+    x = pieces[1].points[:, 0]
+    x[x == 0.5] += 1e-13
+    pieces[1].points[:, 0] = x
+    pyvista.MultiBlock(pieces).save(tmp_path / "ghost.vtm")
+    result = phasegauge.measure(str(tmp_path / "ghost.vtm"), "c", analyses=("conservation", "droplets"))
+    assert int(result.steps["droplet_count"].iloc[0]) == 1
+    assert np.isclose(result.steps["phase_volume"].iloc[0], _whole().cell_data["c"].sum() / N ** 2, rtol=1e-9)
+
+
+def test_a_missing_piece_named_with_its_index(tmp_path):
+    index = _pvtu(tmp_path, 0)
+    (tmp_path / "s0_p1.vtu").unlink()
+    with pytest.raises(InputFileNotFound, match=r"the piece file 's0_p1.vtu' it names is missing; restore the "
+                                                r"step's piece files next to the \.pvtu file"):
+        Series(str(index)).read(0)

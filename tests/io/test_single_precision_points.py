@@ -17,8 +17,8 @@ from phasegauge.io import Series
 pyvista.OFF_SCREEN = True
 
 
-def _file(path, origin, dtype):
-    grid = pyvista.ImageData(dimensions=(21, 21, 1), spacing=(1e-3, 1e-3, 1), origin=(origin, origin, 0))
+def _file(path, origin, dtype, z=0.0):
+    grid = pyvista.ImageData(dimensions=(21, 21, 1), spacing=(1e-3, 1e-3, 1), origin=(origin, origin, z))
     grid = grid.cast_to_unstructured_grid()
     grid.points = grid.points.astype(dtype)
     grid.cell_data["c"] = np.full(grid.n_cells, 0.5)
@@ -40,6 +40,8 @@ def test_single_precision_points_far_off_warned(tmp_path):
     assert "single precision" in line and "6.1e-05" in line and "6.1%" in line
 
 
-@pytest.mark.parametrize("origin, dtype", [(0.0, np.float32), (1000.0, np.float64)])
-def test_near_origin_or_double_precision_not_warned(tmp_path, origin, dtype):
-    assert _warnings(_file(tmp_path / "ok.vtu", origin, dtype)) == []
+@pytest.mark.parametrize("origin, dtype, z", [(0.0, np.float32, 0.0), (1000.0, np.float64, 0.0),
+                                              (0.0, np.float32, 500.0)])
+def test_near_origin_or_double_precision_not_warned(tmp_path, origin, dtype, z):
+    # (a 2D mesh in the plane z = 500: its cells' sizes do not depend on z)
+    assert _warnings(_file(tmp_path / "ok.vtu", origin, dtype, z)) == []

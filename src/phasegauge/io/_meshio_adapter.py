@@ -437,7 +437,8 @@ def _warn_single_precision_points(mesh: Mesh, raw, where: str) -> None:
     (coordinates near 1e3 with cells of 1e-3) are placed only to a share of a cell."""
     if np.asarray(raw.points).dtype != np.float32 and not getattr(raw, "single_precision_points", False):
         return
-    used = mesh.points[mesh.used_points]
+    axes = list(mesh.plane_axes) if mesh.dimension == 2 else [0, 1, 2]  # a flat axis holds no cell size
+    used = mesh.points[mesh.used_points][:, axes]
     if used.size == 0:
         return
     far = float(np.abs(used).max())

@@ -116,9 +116,11 @@ def multiblock_data_files(path) -> list:
 
 def _volume_file(path: str, block: str) -> str:
     if not os.path.exists(block):
-        raise InputFileNotFound(f"the block file '{os.path.relpath(block, os.path.dirname(os.path.abspath(path)))}' "
+        kind = "block" if path.lower().endswith(".vtm") else "piece"
+        raise InputFileNotFound(f"the {kind} file '{os.path.relpath(block, os.path.dirname(os.path.abspath(path)))}' "
                                 "it names is missing", where=path,
-                                fix="restore the step's folder next to the .vtm file")
+                                fix=f"restore the step's {'folder' if kind == 'block' else 'piece files'} next to "
+                                    f"the {os.path.splitext(path)[1].lower()} file")
     return block
 
 
@@ -174,10 +176,17 @@ def _owned_cells(piece):
     if all(k.all() for k in keep):
         del piece.cell_data["vtkGhostType"]
         return piece
-    cells = [(b.type, np.asarray(b.data)[k]) for b, k in zip(piece.cells, keep)]
+    kept = [np.asarray(b.data)[k] for b, k in zip(piece.cells, keep)]
+    # the points only ghost cells used go too: the block's box is then its own cells' (its seams on
+    # the box's faces, where :func:`seams_made_equal` looks for them)
+    used = np.unique(np.concatenate([c.ravel() for c in kept])) if kept else np.empty(0, dtype=np.int64)
+    number = np.full(len(piece.points), -1, dtype=np.int64)
+    number[used] = np.arange(used.size)
+    cells = [(b.type, number[c]) for b, c in zip(piece.cells, kept)]
     cell_data = {name: [np.asarray(a)[k] for a, k in zip(arrays, keep)]
                  for name, arrays in piece.cell_data.items() if name != "vtkGhostType"}
-    return meshio.Mesh(piece.points, cells, point_data=dict(piece.point_data), cell_data=cell_data,
+    point_data = {name: np.asarray(values)[used] for name, values in piece.point_data.items()}
+    return meshio.Mesh(np.asarray(piece.points)[used], cells, point_data=point_data, cell_data=cell_data,
                        field_data=dict(piece.field_data or {}))
 
 
