@@ -12,7 +12,7 @@ cells numbered from 0 [lib].
 import numpy as np
 import pytest
 
-from phasegauge.errors import SeriesError, UnreadableFileError, UnsupportedMeshError
+from phasegauge.errors import InputFileNotFound, SeriesError, UnreadableFileError, UnsupportedMeshError
 from phasegauge.io import Series
 
 h5py = pytest.importorskip("h5py")
@@ -235,3 +235,44 @@ def test_a_file_of_two_time_collections_refused(tmp_path):
     path.write_text(text[:end] + text[start:end].replace('Name="T"', 'Name="U"') + text[end:])
     with pytest.raises(SeriesError, match="the file holds 2 time collections, which is not read"):
         Series(str(path))
+
+
+def _step_file(path, k, t):
+    """One step a file: a plain XDMF grid with its own <Time Value> [spec], numbers inline."""
+    points, quads = _mesh_arrays()
+    item = lambda dims, values, kind: (f'<DataItem Dimensions="{dims}" NumberType="{kind}" Precision="8" '
+                                       'Format="XML">' + " ".join(str(v) for v in np.ravel(values).tolist())
+                                       + "</DataItem>")
+    path.write_text(f'<?xml version="1.0" ?>\n<Xdmf Version="3.0"><Domain><Grid Name="m" GridType="Uniform">'
+                    f'<Time Value="{t!r}"/><Topology TopologyType="Quadrilateral" NumberOfElements="{NX * NY}">'
+                    f'{item(f"{NX * NY} 4", quads, "Int")}</Topology><Geometry GeometryType="XY">'
+                    f'{item(f"{len(points)} 2", points, "Float")}</Geometry><Attribute Name="c" '
+                    f'AttributeType="Scalar" Center="Cell">{item(NX * NY, _values(k), "Float")}</Attribute>'
+                    '</Grid></Domain></Xdmf>\n')
+    return path
+
+
+def test_step_files_with_their_times_and_a_collection_including_them(tmp_path):
+    """Step files each with a grid's <Time Value> [spec] (meshio's plain reader refuses the Time: they are
+    read as a collection of that one grid), given as a folder; and a collection of <xi:include href>
+    children (XInclude, W3C) naming them, given as its file or as the folder holding it and them:
+    every time and value as written [numpy]."""
+    plain, included = tmp_path / "plain", tmp_path / "included"
+    plain.mkdir(), included.mkdir()
+    for k, t in enumerate(TIMES):
+        _step_file(plain / f"s_{k:04d}.xmf", k, t)
+        _step_file(included / f"s_{k:04d}.xmf", k, t)
+    includes = "".join(f'<xi:include href="s_{k:04d}.xmf" xpointer="xpointer(//Xdmf/Domain/Grid[1])"/>'
+                       for k in range(len(TIMES)))
+    (included / "run.xmf").write_text(
+        '<?xml version="1.0" ?>\n<Xdmf Version="3.0" xmlns:xi="http://www.w3.org/2001/XInclude"><Domain>'
+        f'<Grid Name="T" GridType="Collection" CollectionType="Temporal">{includes}</Grid></Domain></Xdmf>\n')
+    for given in (plain, included / "run.xmf", included):
+        series = Series(str(given))
+        assert len(series) == len(TIMES) and series.time_origins == ["file"]
+        np.testing.assert_array_equal(series.times, TIMES)
+        for k, step in enumerate(series):
+            np.testing.assert_array_equal(step.fields.cell_data["c"], _values(k))
+    (included / "s_0001.xmf").unlink()
+    with pytest.raises(InputFileNotFound, match="1 of the 3 step files the collection includes are missing"):
+        Series(str(included / "run.xmf"))

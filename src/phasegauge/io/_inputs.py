@@ -47,8 +47,9 @@ def input_files(series, known_sha256: dict | None = None) -> list:
         files.append(f)
         if is_index_file(f):
             files += multiblock_data_files(f)
-    if series.kind == "collection":  # given as the collection's file or as a folder holding only it
-        files += xdmf_data_files(series.files[0])
+    if series.kind == "collection":  # its file, or the step files it includes: their HDF5 data
+        for f in series.files:
+            files += xdmf_data_files(f)
     if series.kind == "listing":
         files = [series.path] + files
     out, seen = [], set()

@@ -28,7 +28,7 @@ from ..model.mesh import Mesh
 from ._meshio_adapter import _WRITE_AGAIN, StepFields, ensure_vtk_extras, hdf5_problem, mesh_and_fields, step_fields
 from ._xdmf_forms import base_offset, form_problem, version_problem
 
-__all__ = ["XdmfTimeSeries", "offset_cells"]
+__all__ = ["XdmfTimeSeries", "offset_cells", "read_timed_grid"]
 
 _CHECK_FILES = "check the XDMF file and the HDF5 files it names"
 
@@ -87,6 +87,34 @@ def _version2_reader(path: str, root):
     reader.hdf5_files = {}
     reader.mesh_grid = uniform[0]
     return reader
+
+
+def read_timed_grid(path: str, grid):
+    """A plain XDMF file's one grid that holds a ``<Time>`` (one step a file), read by meshio's time-series
+    reader as a collection of that grid alone: meshio's plain-file reader refuses a grid's ``Time``.
+    Returns a meshio mesh (the time is read by :func:`._xdmf.peek_xdmf_time`)."""
+    import meshio
+    from meshio.xdmf.time_series import TimeSeriesReader
+
+    reader = TimeSeriesReader.__new__(TimeSeriesReader)  # set as its constructor sets it, for this grid
+    reader.filename = pathlib.Path(path)
+    reader.domain = ET.parse(path).getroot().find("Domain")
+    for item in reader.domain.iter("DataItem"):  # the XDMF specification's default Format, which meshio needs
+        if item.get("Format") is None:
+            item.set("Format", "XML")
+    grid = next(g for g in reader.domain.iter("Grid") if g.get("Name", "") == grid.get("Name", "")
+                and g.find("Time") is not None)
+    reader.collection, reader.num_steps, reader.cells, reader.hdf5_files = [grid], 1, None, {}
+    reader.mesh_grid = grid
+    try:
+        with warnings.catch_warnings():
+            warnings.simplefilter("ignore")
+            points, cells = reader.read_points_cells()
+            _, point_data, cell_data = reader.read_data(0)
+    finally:
+        for handle in reader.hdf5_files.values():
+            handle.close()
+    return meshio.Mesh(points, cells, point_data=point_data, cell_data=cell_data)
 
 
 class XdmfTimeSeries:

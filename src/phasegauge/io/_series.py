@@ -43,7 +43,7 @@ from ._claims import CheckedFiles, check_hdf5_claims
 from ._series_gaps import (RESOLUTION_SHARE, coarse_time_share, two_times, warn_series_gaps,
                            warn_time_resolution)
 from ._series_names import check_one_family, digits_masked, first_three, natural_key, warn_decimal_doubt
-from ._xdmf import collection_times, grid_time, lone_collection, temporal_grids, xdmf_data_files
+from ._xdmf import collection_times, grid_time, included_files, lone_collection, temporal_grids, xdmf_data_files
 
 __all__ = ["Series", "StepInfo", "Step", "open_series", "natural_key", "read_listing",
            "LISTING_SUFFIXES"]
@@ -274,7 +274,7 @@ class Series:
         if os.path.isdir(path):
             files = sorted((os.path.join(path, f) for f in os.listdir(path) if _is_mesh_file(os.path.join(path, f))),
                            key=natural_key)
-            files = without_indexed_files(files)
+            files = _without_included(without_indexed_files(files))
             collection = lone_collection(files, path)
             if collection is not None:  # a folder of one XDMF time collection (and its HDF5 files)
                 return self._collection_steps(collection, temporal_grids(collection))
@@ -301,7 +301,8 @@ class Series:
                 warn_series_gaps(files, path, steps)
             return steps
         if any(ch in path for ch in "*?[") and not os.path.exists(path):
-            files = without_indexed_files(sorted((f for f in globmod.glob(path) if _is_mesh_file(f)), key=natural_key))
+            files = _without_included(without_indexed_files(sorted((f for f in globmod.glob(path) if _is_mesh_file(f)),
+                                                                   key=natural_key)))
             if not files:
                 raise SeriesError("the pattern matches no mesh files", where=path,
                                   fix="check the pattern; quote it so the shell does not expand it")
@@ -346,7 +347,19 @@ class Series:
 
     def _collection_steps(self, path: str, grids: list) -> list[StepInfo]:
         """The steps of the XDMF temporal collection in file ``path`` (its grids): a grid's time is its own
-        ``<Time Value=...>``, else its place in the collection's time list, else its index."""
+        ``<Time Value=...>``, else its place in the collection's time list, else its index. A collection
+        that includes step files (XInclude) instead: each file a step, read as a plain XDMF file at the
+        time its grid stores."""
+        included = None if grids else included_files(path)
+        if included:
+            missing = [f for f in included if not os.path.exists(f)]
+            if missing:
+                raise InputFileNotFound(f"{len(missing)} of the {len(included)} step files the collection includes "
+                                        f"are missing (the first: {os.path.basename(missing[0])})", where=path,
+                                        fix="restore them next to the collection's file")
+            steps = self._from_files(included)
+            self.kind = "collection"
+            return steps
         self.kind = "collection"
         steps = []
         listed = collection_times(path, len(grids))  # a <Time TimeType="List"> of the collection, or None
@@ -501,6 +514,15 @@ class Series:
         state = self.__dict__.copy()
         state["_xdmf_readers"] = {}
         return state
+
+
+def _without_included(files: list) -> list:
+    """``files`` without the step files an XDMF collection among them includes (read through it)."""
+    named = set()
+    for f in files:
+        if f.lower().endswith((".xdmf", ".xmf")):
+            named.update(os.path.abspath(g) for g in included_files(f) or ())
+    return [f for f in files if os.path.abspath(f) not in named] if named else files
 
 
 def _time_from_field_data(field_data: dict, where: str = "") -> float | None:

@@ -13,14 +13,14 @@ import xml.etree.ElementTree as ET
 
 import numpy as np
 
-from ..errors import InputFileNotFound, SeriesError, UnreadableFileError
+from ..errors import InputFileNotFound, SeriesError, UnreadableFileError, short_text
 from ._formats import register_format, stored_time
 from ._meshio_adapter import read_with_meshio
-from ._meshio_xdmf import offset_cells
+from ._meshio_xdmf import offset_cells, read_timed_grid
 from ._xdmf_forms import base_offset, form_problem
 
 __all__ = ["FORMATS", "temporal_grids", "collection_times", "lone_collection", "grid_time", "xdmf_data_files",
-           "data_file_names"]
+           "data_file_names", "included_files", "peek_xdmf_time"]
 
 #: an HDF5 reference in a DataItem: ``file.h5:/path``
 _HDF5_REFERENCE = re.compile(r">\s*([^<>:\s]+\.(?:h5|hdf5|hdf))\s*:")
@@ -71,7 +71,7 @@ def lone_collection(files: list, where: str):
             except UnreadableFileError:
                 continue
             if grids is not None:
-                collections.append((f, len(grids)))
+                collections.append((f, len(grids) or len(included_files(f) or ())))
     if not collections:
         return None
     if len(files) == 1:
@@ -83,6 +83,43 @@ def lone_collection(files: list, where: str):
     raise SeriesError(f"the files hold {len(collections)} XDMF time collection{'s' if len(collections) > 1 else ''} "
                       f"({named}{more}){beside}, so the steps are not clear", where=where,
                       fix=f"give one collection's file, such as {collections[0][0]}")
+
+
+#: an XInclude element (``<xi:include href=...>``)
+_XINCLUDE = "{http://www.w3.org/2001/XInclude}include"
+
+
+def included_files(path: str):
+    """The step files a temporal collection names by XInclude, in order, or None.
+
+    Some writers keep each step in a file of its own and a collection of ``<xi:include href=...>``
+    children (XInclude, a W3C standard) naming them; each named file is then a step, read as a
+    plain XDMF file. None for a collection of grids, or a file with no temporal collection.
+    """
+    try:
+        root = ET.parse(path).getroot()
+    except (ET.ParseError, OSError):
+        return None
+    collection = _temporal_collection(root)
+    if collection is None or any(child.tag == "Grid" for child in collection):
+        return None
+    folder = os.path.dirname(os.path.abspath(path))
+    hrefs = [child.get("href") for child in collection if child.tag == _XINCLUDE and child.get("href")]
+    return [href if os.path.isabs(href) else os.path.join(folder, href) for href in hrefs] or None
+
+
+def peek_xdmf_time(path: str):
+    """The ``<Time Value=...>`` of a plain XDMF file's grid (one step a file), or None."""
+    try:
+        root = ET.parse(path).getroot()
+    except (ET.ParseError, OSError):
+        return None  # reading the step says what is wrong with it
+    if _temporal_collection(root) is not None:
+        return None
+    for grid in root.iter("Grid"):
+        if grid.find("Time") is not None:
+            return grid_time(grid, where=path)
+    return None
 
 
 def grid_time(grid, where: str = "") -> float | None:
@@ -236,10 +273,19 @@ def read_xdmf(path: str):
         if problem is not None:
             raise problem
         offset = base_offset(grid, path)
-    raw = read_with_meshio(path, "xdmf")
+    if grid is not None and grid.find("Time") is not None:  # one step a file, its time in its grid
+        try:
+            raw = read_timed_grid(path, grid)
+        except Exception as exc:  # meshio's own failure, named as for any file it cannot read
+            raise UnreadableFileError(f"cannot be read as an XDMF file ({short_text(exc)})", where=path,
+                                      fix="check the DataItems of the XDMF file and that the HDF5 files they "
+                                          "name are complete") from None
+    else:
+        raw = read_with_meshio(path, "xdmf")
     if offset:
         raw.cells = offset_cells(raw.cells, offset, path)
     return raw
 
 
-FORMATS = (register_format("xdmf", (".xdmf", ".xmf"), read=read_xdmf, hdf5_files=xdmf_data_files),)
+FORMATS = (register_format("xdmf", (".xdmf", ".xmf"), read=read_xdmf, peek_time=peek_xdmf_time,
+                           hdf5_files=xdmf_data_files),)
