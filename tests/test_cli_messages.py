@@ -51,6 +51,10 @@ def test_run_strict_overrides_the_recipe(tmp_path):
     assert CliRunner().invoke(main, ["run", str(recipe), "-q"]).exit_code == 0  # the bad step skipped
     strict = CliRunner().invoke(main, ["run", str(recipe), "-q", "--strict", "--overwrite"])
     assert strict.exit_code == 2 and "s_1.vtu" in strict.output
+    # a recipe that is strict, made lenient for one run from the command line
+    recipe.write_text(recipe.read_text().replace('analyses = ["conservation"]', 'analyses = ["conservation"]\nstrict = true'))
+    assert CliRunner().invoke(main, ["run", str(recipe), "-q", "--overwrite"]).exit_code == 2
+    assert CliRunner().invoke(main, ["run", str(recipe), "-q", "--no-strict", "--overwrite"]).exit_code == 0
 
 
 def test_missing_dask_is_reported_before_any_step(tmp_path, monkeypatch):

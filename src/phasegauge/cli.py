@@ -284,7 +284,8 @@ def _summary(result, out, quiet):
               help="Local worker processes (overrides the recipe); a campaign measures its runs side by side on them.")
 @click.option("--threads", type=int, default=None,
               help="Threads of each process for mesh work (overrides the recipe).")
-@click.option("--strict", is_flag=True, default=None, help="Stop at a bad step instead of skipping it (overrides the recipe).")
+@click.option("--strict/--no-strict", default=None,
+              help="Stop at a bad step instead of skipping it, or skip it (either overrides the recipe).")
 @click.option("--quiet", "-q", is_flag=True, help="No progress display.")
 def run(recipe, overwrite, resume, workers, threads, strict, quiet):
     """Run a recipe file (TOML): a whole measure, compare or campaign run kept beside the case."""
@@ -298,7 +299,7 @@ def run(recipe, overwrite, resume, workers, threads, strict, quiet):
     loaded = load_recipe(recipe)
     with output_transaction(loaded["output"]["folder"]):
         result = run_recipe(recipe, overwrite=overwrite or None, resume=resume, workers=workers, threads=threads,
-                            strict=strict or None, progress=None if not quiet else False)
+                            strict=strict, progress=None if not quiet else False)
     _summary(result, loaded["output"]["folder"], quiet)
 
 

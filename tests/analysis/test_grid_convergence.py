@@ -59,3 +59,22 @@ def test_cell_sizes_in_wrong_order_refused():
         grid_convergence(1, 2, 3, cell_sizes=(2.0, 1.0, 4.0))
     with pytest.raises(OptionError, match="positive"):
         representative_cell_size(0.0, 10, 2)
+
+
+def test_round_off_differences_give_no_order():
+    # a segregation intensity that is zero on every mesh, to round-off (3.8e-28, 1.9e-27, 1.2e-28): no
+    # order, no GCI, not oscillatory (Celik et al. 2008 take the order from differences that exist)
+    out = grid_convergence(3.8e-28, 1.9e-27, 1.2e-28, cell_sizes=(1.0, 2.0, 4.0), scale=1.0)
+    assert np.isnan(out["apparent_order"]) and np.isnan(out["gci_fine"]) and not out["oscillatory"]
+    out = grid_convergence(1.0 - 1e-14, 1.0, 1.0 - 2e-14, cell_sizes=(1.0, 2.0, 4.0))
+    assert np.isnan(out["apparent_order"]) and not out["oscillatory"]
+
+
+def test_small_dimensional_values_still_converge():
+    # a micro-channel volume of 1e-15 m^3 converging at second order (phi = V (1 + h^2), by hand):
+    # its own magnitude is its scale, so its differences are no round-off
+    h = np.array([0.01, 0.02, 0.04])
+    phi = 1e-15 * (1.0 + h ** 2)
+    out = grid_convergence(*phi, cell_sizes=tuple(h))
+    assert out["apparent_order"] == pytest.approx(2.0, rel=1e-9)
+    assert out["extrapolated"] == pytest.approx(1e-15, rel=1e-9)

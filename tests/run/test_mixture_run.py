@@ -231,3 +231,21 @@ def test_bulk_compositions_of_a_slab_measured_periodic(tmp_path, monkeypatch):
         assert res.steps["bulk_composition_lean"].iat[k] == pytest.approx(lean, abs=2e-3)
         assert res.steps["bulk_composition_rich"].iat[k] == pytest.approx(rich, abs=2e-6)
     assert asked == [("x",)] * len(truth)
+
+
+def test_a_bulk_without_a_plateau_is_not_called_mixed(tmp_path):
+    # a separated slab whose lean bulk ramps away from it (0.03 to 0.4, no plateau) and whose rich side
+    # is at 0.93 (separated by construction: a jump of 0.5 or more across a tanh of width 4 EPS); the
+    # 5-95 % levels fall into the ramp, the measured width grows until no bulk is left beyond it: the run
+    # must say the bulk was not measured, not "still mixed inside the spinodal" (the mean, 0.4 or so,
+    # lies inside the analytic spinodal 0.21-0.79, so the old verdict was that)
+    mesh = grid_mesh((200, 8), bounds=[(0.0, 1.0), (0.0, 0.1)], kind="quad")
+    across = np.abs(mesh.cell_centroids[:, 0] - 0.5)
+    profile = 0.5 * (1 + np.tanh((0.25 - across) / (2 * EPS)))
+    lean = 0.03 + 0.37 * np.clip((across - 0.25) / 0.25, 0.0, 1.0)
+    comp = lean + (0.93 - lean) * profile
+    path = write_listing(tmp_path, [(0.0, "ramp_0.vtu", mesh, {"x": comp}), (1.0, "ramp_1.vtu", mesh, {"x": comp})])
+    res = measure(path, "x", model=RegularSolutionModel(A_a=3.0), temperature=300.0, analyses=("interface",))
+    assert (res.steps["mixture_state"] == "unstable").all() and not res.steps["bulk_composition_lean"].notna().any()
+    kinds = [f.kind for f in res.findings]
+    assert "mixed_inside_spinodal" not in kinds and "bulk_not_measured" in kinds

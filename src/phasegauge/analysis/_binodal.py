@@ -302,8 +302,12 @@ def binodal(model, temperature, *, spinodal_pair=None):
                 break
     if not ok.all():
         bad = tt[~ok]
-        raise AnalysisError(f"the binodal did not converge at T = {bad[0]:g} K ({bad.size} temperature(s))",
-                            fix="check the model parameters; report the model file if they are right")
+        celsius = (f"; temperatures are in kelvin (if {bad[0]:g} is in degrees Celsius, give {bad[0] + 273.15:g})"
+                   if bad[0] < 200.0 else "")
+        raise AnalysisError(f"the binodal did not converge at T = {bad[0]:g} K ({bad.size} temperature(s); "
+                            "coexisting compositions within about 1e-12 of a pure component are beyond it)",
+                            fix=f"check the model parameters and the temperature{celsius}; report the model file "
+                                "if they are right")
     lean[rows], rich[rows], confirmed[rows] = xa, xb, good
     return lean, rich, confirmed
 

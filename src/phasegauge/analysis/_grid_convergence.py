@@ -61,8 +61,19 @@ def representative_cell_size(total_measure, n_cells, dimension: int):
     return float(h) if h.ndim == 0 else h
 
 
+#: differences between meshes below this share of a quantity's scale are round-off: taken as equal
+#: values (no order, no GCI), not as a convergence of their own
+ROUND_OFF = 1e-10
+
+#: quantities of the steps table that are fractions or indices in [0, 1]: their scale is 1 (a
+#: segregation intensity of 1e-28 on every mesh is zero, whatever its round-off)
+UNIT_SCALE = frozenset({"segregation_intensity", "mixing_index", "mixing_index_inflow", "mean_indicator",
+                        "under_resolved_interface_fraction", "mixed_volume_fraction", "bulk_c_low", "bulk_c_high",
+                        "c_min", "c_max"})
+
+
 def grid_convergence(fine, medium, coarse, *, cell_sizes, safety_factor: float = GCI_SAFETY_FACTOR,
-                     tolerance: float = 1e-12, max_iterations: int = 500) -> dict:
+                     tolerance: float = 1e-12, max_iterations: int = 500, scale=None) -> dict:
     """Apparent order, extrapolated value and Grid Convergence Index of values on three meshes.
 
     Parameters
@@ -90,7 +101,9 @@ def grid_convergence(fine, medium, coarse, *, cell_sizes, safety_factor: float =
         asymptotic range), ``oscillatory`` (True when eps32/eps21 < 0). Relative
         errors and GCIs are fractions, not percent. Where the order is undefined
         (equal values on two meshes, no convergence of the iteration) the order
-        and everything after it is NaN.
+        and everything after it is NaN. Values differing by no more than :data:`ROUND_OFF`
+        of the quantity's scale (the largest of the three magnitudes, or ``scale`` when that
+        is larger: 1 for a fraction) are equal.
 
     Raises
     ------
@@ -120,6 +133,13 @@ def grid_convergence(fine, medium, coarse, *, cell_sizes, safety_factor: float =
                           fix="give the meshes in the order FINE MEDIUM COARSE")
     r21, r32 = h2 / h1, h3 / h2
     eps21, eps32 = phi2 - phi1, phi3 - phi2
+    # round-off is no difference: below ROUND_OFF of the quantity's scale (its largest magnitude on
+    # the three meshes, or the scale the caller gives) the two meshes give the same value
+    size = np.maximum(np.maximum(np.abs(phi1), np.abs(phi2)), np.abs(phi3))
+    if scale is not None:
+        size = np.maximum(size, np.asarray(scale, dtype=float))
+    eps21 = np.where(np.abs(eps21) <= ROUND_OFF * size, 0.0, eps21)
+    eps32 = np.where(np.abs(eps32) <= ROUND_OFF * size, 0.0, eps32)
     with np.errstate(divide="ignore", invalid="ignore"):
         ratio = eps32 / eps21
         defined = np.isfinite(ratio) & (ratio != 0)
@@ -257,7 +277,8 @@ def convergence_table(fine, medium, coarse, *, cell_sizes, safety_factor: float 
     rows = []
     for column in shared:
         values = [_values_at(f, column, times) for f in frames]
-        figures = grid_convergence(*values, cell_sizes=h, safety_factor=safety_factor)
+        figures = grid_convergence(*values, cell_sizes=h, safety_factor=safety_factor,
+                                   scale=1.0 if column in UNIT_SCALE else None)
         block = {"quantity": column, "time": times, "value_fine": values[0], "value_medium": values[1],
                  "value_coarse": values[2], "cell_size_fine": h[0], "cell_size_medium": h[1],
                  "cell_size_coarse": h[2]}

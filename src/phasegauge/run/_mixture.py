@@ -251,7 +251,24 @@ def mixture_findings(steps, options) -> list:
         found.append(Finding("separated_one_phase", "warning" if still else "note", text,
                              {"steps": int(wrong.sum()), "first_time": times[0], "last_time": times[-1],
                               "at_last_step": still}))
-    unstable = (steps["mixture_state"].astype(str).to_numpy() == "unstable") & ~separated
+    # mixed is known where both bulks were measured (and they lie within the tolerance) or where no
+    # interface was found; an interface with no bulk cells beyond it on a side says neither
+    lean = steps["bulk_composition_lean"].to_numpy(dtype=float)
+    rich = steps["bulk_composition_rich"].to_numpy(dtype=float)
+    bulk = np.isfinite(lean) & np.isfinite(rich)
+    size = steps["interface_size"].to_numpy(dtype=float) if "interface_size" in steps else np.full(len(steps), np.nan)
+    no_interface = ~(size > 0)
+    unknown = ~bulk & ~no_interface
+    if unknown.any():
+        times = _times(steps, unknown)
+        found.append(Finding("bulk_not_measured", "warning",
+                             f"no bulk beyond {options.bulk_widths:g} interface "
+                             f"width{'s' if options.bulk_widths != 1 else ''} on one side or both "
+                             f"({int(unknown.sum())} step(s), t = {times[0]:g} to {times[-1]:g}), so whether the "
+                             "phases separated is not judged there: a bulk that has not reached a plateau widens "
+                             "the measured interface (see interface_width) until no bulk is left",
+                             {"steps": int(unknown.sum()), "first_time": times[0], "last_time": times[-1]}))
+    unstable = (steps["mixture_state"].astype(str).to_numpy() == "unstable") & ~separated & ~unknown
     if unstable.any():
         times = _times(steps, unstable)
         still = bool(unstable[last])

@@ -38,7 +38,7 @@ class Finding:
         ``indicator_overshoot``, ``bulk_plateaus`` (bulk off 0 and 1 read as physics), ``interface_under_resolved``,
         ``width_cell_data_bias``, ``free_energy_increase``, ``coarsening``,
         ``droplets_under_resolved``, ``steps_skipped``, the mixture findings
-        (``separated_one_phase``, ``mixed_inside_spinodal``, ``binodal_gap``,
+        (``separated_one_phase``, ``mixed_inside_spinodal``, ``bulk_not_measured``, ``binodal_gap``,
         ``binodal_gibbs_thomson``, ``binodal_reached``; see ``run/_mixture.py``), or ``warning`` (a
         warning of the steps or the series, repeats collapsed).
     severity : {'warning', 'note'}
