@@ -24,6 +24,7 @@ from ..model.corners import CornerExtremes, cell_gradient, corner_extremes
 from ..model.mesh import Mesh
 from ..model._threads import Beside, check_threads
 from ..model.simplices import _split_plan
+from ._boundary_reach import boundary_share
 from ._contour import _check_extremes, _check_level, find_interface
 from ._profile_fits import PROFILE_COLUMNS, WIDTH_PER_EPS, _profile_table
 from ._hex_integrals import _HexBand, coned_hexahedra
@@ -44,7 +45,7 @@ METRIC_KEYS = ("interface_size", "interface_width", "interface_width_cells", "wi
                "interface_eps", "width_second_moment", "interface_variance", "width_profile_median",
                "width_profile_p90", "widest_x", "widest_y", "widest_z",
                "under_resolved_interface_fraction", "interface_cells_across", "bulk_c_low", "bulk_c_high",
-               "width_cell_data_bias")
+               "width_cell_data_bias", "interface_near_boundary_fraction")
 
 #: bias of the widths on point values rebuilt from cell data, per (h / eps)^2 (measured on cell
 #: averages of the logistic profile: +0.46 / +1.4 / +6.3 / +30 % at h / eps = 1/4, 1/2, 1, 2)
@@ -568,5 +569,8 @@ def _metrics(prepared: PreparedWidths, max_samples: int, threads: int = 1, *, di
         "bulk_c_low": float(prepared.plateaus[0]), "bulk_c_high": float(prepared.plateaus[1]),
         "width_cell_data_bias": (CELL_DATA_BIAS * (h_interface / eps) ** 2
                                  if prepared.cell_mixed is not None and eps > 0 else float("nan")),
+        # the share of the interface whose profile the second moment's reach cuts at the boundary
+        "interface_near_boundary_fraction": boundary_share(mesh, geometry.centroids, sizes, float(bound),
+                                                           normals=geometry.normals, lateral=h_interface),
     }
     return metrics, table, measured

@@ -251,24 +251,33 @@ def mixture_findings(steps, options) -> list:
         found.append(Finding("separated_one_phase", "warning" if still else "note", text,
                              {"steps": int(wrong.sum()), "first_time": times[0], "last_time": times[-1],
                               "at_last_step": still}))
-    # mixed is known where both bulks were measured (and they lie within the tolerance) or where no
-    # interface was found; an interface with no bulk cells beyond it on a side says neither
+    # "still mixed" needs evidence: both bulks measured (and not apart), no interface found, or the
+    # composition's whole range under half the binodal's gap (a quench's noise); an interface with no
+    # bulk beyond it on a side and a range spanning the gap (a bulk without a plateau, a pattern still
+    # forming) says neither
     lean = steps["bulk_composition_lean"].to_numpy(dtype=float)
     rich = steps["bulk_composition_rich"].to_numpy(dtype=float)
-    bulk = np.isfinite(lean) & np.isfinite(rich)
     size = steps["interface_size"].to_numpy(dtype=float) if "interface_size" in steps else np.full(len(steps), np.nan)
-    no_interface = ~(size > 0)
-    unknown = ~bulk & ~no_interface
+    low, high = (float(v) for v in options.range)
+    span = (steps["c_max"].to_numpy(dtype=float) - steps["c_min"].to_numpy(dtype=float)) * abs(high - low) \
+        if "c_max" in steps and "c_min" in steps else np.full(len(steps), np.nan)
+    gap = steps["binodal_rich"].to_numpy(dtype=float) - steps["binodal_lean"].to_numpy(dtype=float)
+    mixed_seen = (np.isfinite(lean) & np.isfinite(rich)) | ~(size > 0) | (span < 0.5 * gap)
+    state = steps["mixture_state"].astype(str).to_numpy()
+    unknown = (state == "unstable") & ~separated & ~mixed_seen
     if unknown.any():
         times = _times(steps, unknown)
-        found.append(Finding("bulk_not_measured", "warning",
+        still = bool(unknown[last])
+        found.append(Finding("bulk_not_measured", "warning" if still else "note",
                              f"no bulk beyond {options.bulk_widths:g} interface "
-                             f"width{'s' if options.bulk_widths != 1 else ''} on one side or both "
-                             f"({int(unknown.sum())} step(s), t = {times[0]:g} to {times[-1]:g}), so whether the "
-                             "phases separated is not judged there: a bulk that has not reached a plateau widens "
-                             "the measured interface (see interface_width) until no bulk is left",
-                             {"steps": int(unknown.sum()), "first_time": times[0], "last_time": times[-1]}))
-    unstable = (steps["mixture_state"].astype(str).to_numpy() == "unstable") & ~separated & ~unknown
+                             f"width{'s' if options.bulk_widths != 1 else ''} on one side or both inside the spinodal "
+                             f"({int(unknown.sum())} step(s), t = {times[0]:g} to {times[-1]:g}), with compositions "
+                             "spanning half the binodal's gap or more, so whether the phases separated is not judged "
+                             "there: a bulk that has not reached a plateau widens the measured interface (see "
+                             "interface_width) until no bulk is left" + ("" if still else "; separated later"),
+                             {"steps": int(unknown.sum()), "first_time": times[0], "last_time": times[-1],
+                              "at_last_step": still}))
+    unstable = (state == "unstable") & ~separated & ~unknown
     if unstable.any():
         times = _times(steps, unstable)
         still = bool(unstable[last])

@@ -22,6 +22,7 @@ import numpy as np
 
 from ..errors import (AnalysisError, InputError, PhasegaugeError, SeriesError, SeriesWarning, SkippedStepWarning,
                       collapse_warnings)
+from ._boundary_findings import boundary_reach_finding
 from .options import STEP_COLUMNS
 
 __all__ = ["Finding", "TrackingFeed", "assemble", "findings"]
@@ -36,7 +37,7 @@ class Finding:
         ``interface_widening``, ``phase_volume_drift``, ``phase_volume_left_out`` (a change no larger than
         what the cells left out for non-finite values could account for: a note), ``open_boundary``,
         ``indicator_overshoot``, ``bulk_plateaus`` (bulk off 0 and 1 read as physics), ``interface_under_resolved``,
-        ``width_cell_data_bias``, ``free_energy_increase``, ``coarsening``,
+        ``width_cell_data_bias``, ``interface_near_boundary``, ``free_energy_increase``, ``coarsening``,
         ``droplets_under_resolved``, ``steps_skipped``, the mixture findings
         (``separated_one_phase``, ``mixed_inside_spinodal``, ``bulk_not_measured``, ``binodal_gap``,
         ``binodal_gibbs_thomson``, ``binodal_reached``; see ``run/_mixture.py``), or ``warning`` (a
@@ -478,6 +479,8 @@ def findings(steps, droplets, audit: dict, options, skipped: list, *, dimension:
             found.append(Finding("interface_under_resolved", "warning",
                                  f"diffuse interface under-resolved: up to {100 * worst:.3g} % of it has fewer than "
                                  "4 cells across 0.1 < c < 0.9 (common practice)", {"fraction": worst, "threshold": 0.1}))
+    near = boundary_reach_finding(steps)
+    found += [near] if near is not None else []
     if "width_cell_data_bias" in steps and kind != "sharp":  # a sharp interface is one to two cells by design
         worst = _worst(steps, "width_cell_data_bias")
         if worst > WIDTH_TOLERANCE:
