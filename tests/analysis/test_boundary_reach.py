@@ -56,16 +56,14 @@ def test_share_of_a_straight_interface_against_its_distance_to_a_wall():
 
 def test_side_walls_along_the_normal_cut_no_profile():
     # a slab across a channel (interface x = 0.5, normal along x) between walls y = 0 and y = 0.1: the
-    # walls lie along the normal, so only the two end elements (next to them) lie on the line of a
-    # boundary point (numpy's distances to the grid's boundary points)
+    # walls' faces lie along the normal (their own normals across it), so none faces an element, the
+    # end elements next to the walls included (numpy's geometry of the grid's boundary edges)
     mesh = grid_mesh((40, 4), bounds=[(0.0, 1.0), (0.0, 0.1)], kind="quad")
     centroids = np.c_[np.full(4, 0.5), (np.arange(4) + 0.5) / 40, np.zeros(4)]
     normals = np.tile([1.0, 0.0, 0.0], (4, 1))
     h = 0.025
-    # the end elements lie half a cell from the walls: on the line of a wall point within a cell
-    share = boundary_share(mesh, centroids, np.full(4, 0.025), 0.2, normals=normals, lateral=h)
-    assert share == pytest.approx(2 / 4)
-    assert boundary_share(mesh, centroids, np.full(4, 0.025), 0.2, normals=normals, lateral=0.4 * h) == 0.0
-    assert boundary_share(mesh, centroids, np.full(4, 0.025), 0.2) == 1.0  # any direction: all of it
-    # (the end walls x = 0 and x = 1, 0.5 away along the normal, lie beyond the sixteen nearer side-wall
-    # points of every element: a documented limit, not looked at)
+    assert boundary_share(mesh, centroids, np.full(4, 0.025), 0.2, normals=normals, lateral=h) == 0.0
+    assert boundary_share(mesh, centroids, np.full(4, 0.025), 0.2) == 1.0  # any face, any direction: all
+    # the same elements in a box periodic along y: no boundary within reach at all
+    assert boundary_share(mesh, centroids, np.full(4, 0.025), 0.2, periodic=("y",)) == 0.0
+    # (the end walls x = 0 and x = 1, 0.5 away along the normal, lie beyond the reach)

@@ -78,3 +78,18 @@ def test_small_dimensional_values_still_converge():
     out = grid_convergence(*phi, cell_sizes=tuple(h))
     assert out["apparent_order"] == pytest.approx(2.0, rel=1e-9)
     assert out["extrapolated"] == pytest.approx(1e-15, rel=1e-9)
+
+
+def test_a_conserving_run_gives_no_drift_order():
+    # phase_volume_drift of a run that conserves to round-off (a fraction: scale 1), and its change
+    # V - V0 on the phase volume's scale (0.3): no order, no GCI (the round-off figures by hand)
+    import pandas as pd
+
+    from phasegauge.analysis._grid_convergence import convergence_table
+
+    frames = [pd.DataFrame({"time": [0.0, 1.0], "phase_volume": [0.3, 0.3 + e],
+                            "phase_volume_drift": [0.0, e / 0.3], "phase_volume_drift_abs": [0.0, e]})
+              for e in (3e-17, -5e-17, 1e-17)]
+    table = convergence_table(*frames, cell_sizes=(1.0, 2.0, 4.0))
+    rows = table[(table["time"] == 1.0) & table["quantity"].isin(["phase_volume_drift", "phase_volume_drift_abs"])]
+    assert len(rows) == 2 and rows["apparent_order"].isna().all() and not rows["oscillatory"].any()

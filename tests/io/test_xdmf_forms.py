@@ -276,3 +276,15 @@ def test_step_files_with_their_times_and_a_collection_including_them(tmp_path):
     (included / "s_0001.xmf").unlink()
     with pytest.raises(InputFileNotFound, match="1 of the 3 step files the collection includes are missing"):
         Series(str(included / "run.xmf"))
+
+
+def test_an_include_of_another_grid_than_the_first_refused(tmp_path):
+    """An <xi:include> whose xpointer names a file's second grid [XInclude, XPointer]: a step file is read
+    by its first grid, so this is refused in one line, not read as the wrong grid."""
+    _step_file(tmp_path / "s_0.xmf", 0, 0.0)
+    (tmp_path / "run.xmf").write_text(
+        '<?xml version="1.0" ?>\n<Xdmf Version="3.0" xmlns:xi="http://www.w3.org/2001/XInclude"><Domain>'
+        '<Grid Name="T" GridType="Collection" CollectionType="Temporal">'
+        '<xi:include href="s_0.xmf" xpointer="xpointer(//Xdmf/Domain/Grid[2])"/></Grid></Domain></Xdmf>\n')
+    with pytest.raises(SeriesError, match="includes grid 2 of s_0.xmf, but a step file is read by its first grid"):
+        Series(str(tmp_path / "run.xmf"))

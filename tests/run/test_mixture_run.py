@@ -249,3 +249,16 @@ def test_a_bulk_without_a_plateau_is_not_called_mixed(tmp_path):
     assert (res.steps["mixture_state"] == "unstable").all() and not res.steps["bulk_composition_lean"].notna().any()
     kinds = [f.kind for f in res.findings]
     assert "mixed_inside_spinodal" not in kinds and "bulk_not_measured" in kinds
+
+
+def test_a_quench_noise_is_mixed_not_separated(tmp_path):
+    # mean 0.5 inside the analytic spinodal (0.21-0.79) with noise of +-0.05 (a quench): the bulks on
+    # the two sides of the noise's contour lie a few hundredths apart, far under half the binodal's gap
+    # (0.86), so the run is mixed inside the spinodal, not separated
+    mesh = grid_mesh((60, 60), kind="quad")
+    noise = np.random.default_rng(3).uniform(-0.05, 0.05, mesh.n_cells)
+    path = write_listing(tmp_path, [(float(k), f"q_{k}.vtu", mesh, {"x": 0.5 + noise}) for k in range(2)])
+    res = measure(path, "x", model=RegularSolutionModel(A_a=3.0), temperature=300.0,
+                  analyses=("interface", "conservation"))
+    assert not res.steps["separated"].any()
+    assert "mixed_inside_spinodal" in [f.kind for f in res.findings]

@@ -16,19 +16,52 @@ __all__ = ["boundary_share"]
 
 #: buckets along the longest side of the box of the boundary's points (:func:`_boundary_buckets`)
 _BUCKETS = 64
-#: nearest boundary points looked at from each interface element
+#: nearest boundary faces looked at from each interface element
 _NEAREST = 16
+#: a boundary face faces an element when their normals lie within 45 degrees of each other
+_FACING = np.cos(np.pi / 4)
 
 
-def _boundary_tree(mesh):
-    """A search tree of the points on the mesh's boundary faces, in the mesh's own axes (None: none)."""
+def _boundary_faces(mesh):
+    """The centroids and unit normals of the mesh's boundary faces (edges in 2D), in the mesh's own axes,
+    as ``(centroids, normals)``; None when the mesh has no boundary."""
+    corners = np.asarray(mesh.boundary_faces[0])
+    if corners.shape[0] == 0:
+        return None
+    xyz = np.asarray(mesh.coordinates, dtype=float)
+    if corners.shape[1] == 2:  # edges: the normal is the edge turned a right angle
+        a, b = xyz[corners[:, 0]], xyz[corners[:, 1]]
+        edge = b - a
+        normal = np.c_[edge[:, 1], -edge[:, 0]]
+        centre = 0.5 * (a + b)
+    else:  # quads (corners sorted: the normal from the two diagonals' cross product is unsigned) and
+        # triangles padded with -1 in front
+        tri = corners[:, 0] < 0
+        first = np.where(tri, corners[:, 1], corners[:, 0])
+        p0, p1, p2, p3 = xyz[first], xyz[corners[:, 1]], xyz[corners[:, 2]], xyz[corners[:, 3]]
+        normal = np.where(tri[:, None], np.cross(p2 - p1, p3 - p1), np.cross(p3 - p0, p2 - p1))
+        centre = np.where(tri[:, None], (p1 + p2 + p3) / 3.0, 0.25 * (p0 + p1 + p2 + p3))
+    length = np.linalg.norm(normal, axis=1)
+    return centre, normal / np.where(length > 0, length, 1.0)[:, None]
+
+
+def _boundary_tree(mesh, periodic: tuple):
+    """A search tree of the boundary faces' centroids and their unit normals, the faces on the planes of
+    ``periodic`` axes (mesh axis numbers) left out: no boundary there. None: no boundary left."""
     from scipy.spatial import cKDTree
 
-    corners = np.asarray(mesh.boundary_faces[0])
-    ids = np.unique(corners[corners >= 0])
-    if ids.size == 0:
+    faces = _boundary_faces(mesh)
+    if faces is None:
         return None
-    return cKDTree(np.asarray(mesh.coordinates)[ids])
+    centre, normal = faces
+    keep = np.ones(centre.shape[0], dtype=bool)
+    lo, hi = centre.min(axis=0), centre.max(axis=0)
+    tolerance = 1e-9 * float(np.max(hi - lo)) if centre.shape[0] else 0.0
+    for axis in periodic:
+        keep &= ~((np.abs(centre[:, axis] - lo[axis]) <= tolerance) | (np.abs(centre[:, axis] - hi[axis]) <= tolerance))
+    if not keep.any():
+        return None
+    return cKDTree(centre[keep]), normal[keep]
 
 
 def _boundary_buckets(points: np.ndarray) -> tuple:
@@ -48,27 +81,33 @@ def _boundary_buckets(points: np.ndarray) -> tuple:
 
 
 def boundary_share(mesh, centroids: np.ndarray, sizes: np.ndarray, reach: float, normals=None,
-                   lateral: float = 0.0) -> float:
+                   lateral: float = 0.0, periodic: tuple = ()) -> float:
     """The share of the interface (element sizes ``sizes`` at ``centroids``) whose profile the domain's
-    boundary cuts within ``reach``: a boundary point nearer than ``reach`` to the element and within
-    ``lateral`` (about a cell) of the line through it along its unit normal (``normals``; any boundary
-    point within reach without them). A wall along the normal (a channel's side walls beside a slab
-    across it) cuts no profile, except for the elements next to it.
-    0 where the domain has no boundary; NaN without elements or reach.
+    boundary cuts within ``reach``: a boundary face whose centroid lies nearer than ``reach`` to the
+    element, within ``lateral`` (about a cell) of the line through it along its unit normal
+    (``normals``), and which faces it (the face's normal within 45 degrees of the element's). A wall
+    along the normal (a channel's side walls beside a slab across it) cuts no profile. Without
+    ``normals``, any boundary face within reach. ``periodic``: axis names (``'x'``...) along which the
+    domain wraps: its faces on those planes are no boundary. 0 where the domain has no boundary; NaN
+    without elements or reach.
 
-    Elements are first passed over where a grid of buckets (made once a mesh) shows no boundary point
-    within reach (exact: a lower bound); of each other element's boundary points within reach the 16
-    nearest are looked at (a facing wall beyond 16 nearer side-wall points is missed); a wall is seen
-    through its points, so ``lateral`` must be at least about their spacing.
+    Elements are first passed over where a grid of buckets (made once a mesh) shows no boundary face
+    within reach (exact: a lower bound); of each other element's faces within reach the 16 nearest are
+    looked at (a facing wall beyond 16 nearer faces is missed). A seam of hanging faces where a mesh is
+    refined is taken for a boundary (its faces are owned by one cell).
     """
+    from ..model.axes import AXIS_INDEX
+
     total = float(np.sum(sizes))
     if sizes.size == 0 or not total > 0 or not np.isfinite(reach) or not reach > 0:
         return float("nan")
-    tree = mesh.memo("boundary_point_tree", lambda: _boundary_tree(mesh))
-    if tree is None:
-        return 0.0
-    lo, side, shape, bound = mesh.memo("boundary_buckets", lambda: _boundary_buckets(tree.data))
     axes = list(mesh.plane_axes) if mesh.dimension == 2 else [0, 1, 2]  # the elements' 3D points, in those axes
+    wrapped = tuple(sorted(axes.index(AXIS_INDEX[a]) for a in periodic if AXIS_INDEX[a] in axes))
+    found = mesh.memo(("boundary_face_tree", wrapped), lambda: _boundary_tree(mesh, wrapped))
+    if found is None:
+        return 0.0
+    tree, face_normals = found
+    lo, side, shape, bound = mesh.memo(("boundary_buckets", wrapped), lambda: _boundary_buckets(tree.data))
     at = np.asarray(centroids, dtype=float)[:, axes]
     bucket = np.clip(((at - lo) / side).astype(np.int64), 0, np.array(shape) - 1)
     outside = np.any((at < lo - reach) | (at > lo + np.array(shape) * side + reach), axis=1)
@@ -82,8 +121,12 @@ def boundary_share(mesh, centroids: np.ndarray, sizes: np.ndarray, reach: float,
         if normals is None:
             cut[rows] = within.any(axis=1)
         else:
-            offset = tree.data[np.where(within, nearest, 0)] - at[:, None, :]
-            along = np.einsum("ikj,ij->ik", offset, np.asarray(normals, dtype=float)[rows][:, axes])
+            pick = np.where(within, nearest, 0)
+            own = np.asarray(normals, dtype=float)[rows][:, axes]
+            own /= np.maximum(np.linalg.norm(own, axis=1), 1e-300)[:, None]
+            offset = tree.data[pick] - at[:, None, :]
+            along = np.einsum("ikj,ij->ik", offset, own)
             off_line = np.einsum("ikj,ikj->ik", offset, offset) - along ** 2
-            cut[rows] = (within & (off_line <= lateral ** 2)).any(axis=1)
+            facing = np.abs(np.einsum("ikj,ij->ik", face_normals[pick], own)) >= _FACING
+            cut[rows] = (within & (off_line <= lateral ** 2) & facing).any(axis=1)
     return float(np.sum(sizes[cut]) / total)

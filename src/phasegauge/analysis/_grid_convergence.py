@@ -13,6 +13,8 @@ ratio, where the first step is exact). Everything here is arrays in, arrays out.
 
 from __future__ import annotations
 
+from types import MappingProxyType
+
 import numpy as np
 
 from ..errors import OptionError
@@ -69,7 +71,10 @@ ROUND_OFF = 1e-10
 #: segregation intensity of 1e-28 on every mesh is zero, whatever its round-off)
 UNIT_SCALE = frozenset({"segregation_intensity", "mixing_index", "mixing_index_inflow", "mean_indicator",
                         "under_resolved_interface_fraction", "mixed_volume_fraction", "bulk_c_low", "bulk_c_high",
-                        "c_min", "c_max"})
+                        "c_min", "c_max", "phase_volume_drift"})
+
+#: quantities whose scale is another column's (a phase volume's change, on the phase volume's scale)
+SCALE_OF = MappingProxyType({"phase_volume_drift_abs": "phase_volume"})
 
 
 def grid_convergence(fine, medium, coarse, *, cell_sizes, safety_factor: float = GCI_SAFETY_FACTOR,
@@ -277,8 +282,10 @@ def convergence_table(fine, medium, coarse, *, cell_sizes, safety_factor: float 
     rows = []
     for column in shared:
         values = [_values_at(f, column, times) for f in frames]
-        figures = grid_convergence(*values, cell_sizes=h, safety_factor=safety_factor,
-                                   scale=1.0 if column in UNIT_SCALE else None)
+        scale = 1.0 if column in UNIT_SCALE else None
+        if column in SCALE_OF and SCALE_OF[column] in shared:
+            scale = max(float(np.nanmax(np.abs(f[SCALE_OF[column]].to_numpy(dtype=float)))) for f in frames)
+        figures = grid_convergence(*values, cell_sizes=h, safety_factor=safety_factor, scale=scale)
         block = {"quantity": column, "time": times, "value_fine": values[0], "value_medium": values[1],
                  "value_coarse": values[2], "cell_size_fine": h[0], "cell_size_medium": h[1],
                  "cell_size_coarse": h[2]}

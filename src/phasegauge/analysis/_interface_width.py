@@ -288,7 +288,7 @@ def _nan_metrics() -> dict:
 def interface_metrics(mesh: Mesh, indicator, *, level: float = 0.5, contour: Contour | None = None,
                       extremes: CornerExtremes | None = None, max_samples: int = 2000,
                       return_distances: bool = False, plateaus=None, threads: int = 1,
-                      prepared: PreparedWidths | None = None):
+                      prepared: PreparedWidths | None = None, periodic: tuple = ()):
     """Size and width of the interface, by four independent estimators.
 
     Parameters
@@ -328,6 +328,9 @@ def interface_metrics(mesh: Mesh, indicator, *, level: float = 0.5, contour: Con
         again) and ``level`` (a caller that reads the contour before the
         widths forms them once); then ``contour``, ``extremes`` and
         ``plateaus`` are not given.
+    periodic : tuple of str
+        Axes (``'x'``, ...) along which the domain wraps: their boundary planes cut no profile
+        (``interface_near_boundary_fraction``).
 
     Returns
     -------
@@ -428,7 +431,7 @@ def interface_metrics(mesh: Mesh, indicator, *, level: float = 0.5, contour: Con
     else:
         threads = check_threads(threads)
         _check_prepared(prepared, mesh, indicator, level, contour, extremes, plateaus)
-    metrics, _, distances = _metrics(prepared, max_samples, threads, distances=return_distances)
+    metrics, _, distances = _metrics(prepared, max_samples, threads, distances=return_distances, periodic=periodic)
     return (metrics, distances) if return_distances else metrics
 
 
@@ -512,7 +515,8 @@ def interface_profile_table(mesh: Mesh, indicator, *, level: float = 0.5, contou
     return _metrics(prepared, max_samples)[1]
 
 
-def _metrics(prepared: PreparedWidths, max_samples: int, threads: int = 1, *, distances: bool = False):
+def _metrics(prepared: PreparedWidths, max_samples: int, threads: int = 1, *, distances: bool = False,
+             periodic: tuple = ()):
     """The metrics, the profile table and (with ``distances``, else None) the distances measured."""
     mesh, contour, integrals = prepared.mesh, prepared.contour, prepared.integrals
     geometry = prepared.geometry
@@ -571,6 +575,7 @@ def _metrics(prepared: PreparedWidths, max_samples: int, threads: int = 1, *, di
                                  if prepared.cell_mixed is not None and eps > 0 else float("nan")),
         # the share of the interface whose profile the second moment's reach cuts at the boundary
         "interface_near_boundary_fraction": boundary_share(mesh, geometry.centroids, sizes, float(bound),
-                                                           normals=geometry.normals, lateral=h_interface),
+                                                           normals=geometry.normals, lateral=h_interface,
+                                                           periodic=periodic),
     }
     return metrics, table, measured

@@ -22,7 +22,7 @@ from ..model.axes import AXIS_INDEX
 from ..model.contour import Contour
 from ..model.corners import corner_mean
 from ..model.mixture_models import DoubleWellModel
-from ._binodal import _stability, binodal, spinodal
+from ._binodal import _hull_bridges, _stability, binodal, spinodal
 from ._labelling import _normalize_periodic
 from ._signed_distance import _ContourGeometry, _maybe_near_cells, _search_sets, _signed_distance
 from ._sums import dot
@@ -278,8 +278,10 @@ def mixture_state(model, temperature, composition, *, equilibrium=None):
     Returns
     -------
     str or ndarray of str
-        ``'stable'`` outside the binodal (or where one phase is stable), ``'unstable'`` inside
-        the spinodal, ``'metastable'`` between.
+        ``'stable'`` outside the binodal (or where one phase is stable), ``'unstable'`` where the
+        mixing free energy is concave (inside the spinodal), ``'metastable'`` between. A model with
+        two two-phase regions at the temperature has both counted (the second on the composition
+        grid's convex hull), and the stable gap between them stays stable.
     """
     if equilibrium is None:
         pair = spinodal(model, temperature)
@@ -295,7 +297,18 @@ def mixture_state(model, temperature, composition, *, equilibrium=None):
     state = np.full(x.shape, "stable", dtype=object)
     if np.isfinite(b_lean):
         state[(x > b_lean) & (x < b_rich)] = "metastable"
-        state[(x > s_lean) & (x < s_rich)] = "unstable"
+        if isinstance(model, DoubleWellModel):
+            unstable = (x > s_lean) & (x < s_rich)
+        else:  # the curvature itself: a model may have two unstable ranges at one temperature, with a
+            # stable gap between them inside the outermost spinodal pair; and a two-phase region beside
+            # the widest (the binodal's), found on the grid's convex hull
+            for low, high, _, _ in _hull_bridges(model, float(temperature)):
+                if high <= b_lean or low >= b_rich:  # another region than the binodal's (refined) one
+                    state[(x > low) & (x < high)] = "metastable"
+            inner = (x > 0) & (x < 1)
+            unstable = np.zeros(x.shape, dtype=bool)
+            unstable[inner] = _stability(model, x[inner], float(temperature)) < 0
+        state[unstable] = "unstable"
     return str(state) if state.ndim == 0 else state.astype(str)
 
 

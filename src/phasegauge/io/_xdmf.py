@@ -94,7 +94,13 @@ def included_files(path: str):
 
     Some writers keep each step in a file of its own and a collection of ``<xi:include href=...>``
     children (XInclude, a W3C standard) naming them; each named file is then a step, read as a
-    plain XDMF file. None for a collection of grids, or a file with no temporal collection.
+    plain XDMF file (its first grid). None for a collection of grids, or a file with no temporal
+    collection.
+
+    Raises
+    ------
+    SeriesError
+        An include's ``xpointer`` names another grid than a file's first, or a file is included twice.
     """
     try:
         root = ET.parse(path).getroot()
@@ -104,7 +110,19 @@ def included_files(path: str):
     if collection is None or any(child.tag == "Grid" for child in collection):
         return None
     folder = os.path.dirname(os.path.abspath(path))
-    hrefs = [child.get("href") for child in collection if child.tag == _XINCLUDE and child.get("href")]
+    includes = [child for child in collection if child.tag == _XINCLUDE and child.get("href")]
+    hrefs = [child.get("href") for child in includes]
+    for child in includes:  # a step file is read as a plain file: its first grid
+        index = re.search(r"Grid\[(\d+)\]", child.get("xpointer") or "")
+        if index is not None and int(index.group(1)) != 1:
+            raise SeriesError(f"the collection includes grid {index.group(1)} of {child.get('href')}, but a step file "
+                              "is read by its first grid", where=path,
+                              fix="write one grid a step file (the fluid's first), or give a 'time,path' listing")
+    twice = sorted({h for h in hrefs if hrefs.count(h) > 1})
+    if twice:
+        raise SeriesError(f"the collection includes {twice[0]} more than once (its grids as steps), but a step file "
+                          "is read by its first grid", where=path,
+                          fix="write one grid a step file, or give a 'time,path' listing")
     return [href if os.path.isabs(href) else os.path.join(folder, href) for href in hrefs] or None
 
 

@@ -12,14 +12,14 @@ __all__ = ["boundary_reach_finding", "NEAR_BOUNDARY_SHARE"]
 NEAR_BOUNDARY_SHARE = 0.05
 
 
-def boundary_reach_finding(steps):
+def boundary_reach_finding(steps, kind: str = ""):
     """A warning :class:`~phasegauge.run.assemble.Finding` when, at some step, more than
     :data:`NEAR_BOUNDARY_SHARE` of the interface lies within the second moment's reach of the
     domain's boundary (``interface_near_boundary_fraction``), else None."""
     from .assemble import Finding
 
-    if "interface_near_boundary_fraction" not in steps:
-        return None
+    if "interface_near_boundary_fraction" not in steps or kind == "sharp":  # a sharp interface: one to two
+        return None                                                             # cells, no profile to cut
     share = steps["interface_near_boundary_fraction"].to_numpy(dtype=float)
     if not np.isfinite(share).any() or np.nanmax(share) <= NEAR_BOUNDARY_SHARE:
         return None

@@ -166,7 +166,12 @@ def mixture_step(step, mesh, ind, contour, metrics: dict, options, droplets=None
         bulk = {k: found[k] for k in bulk}
     out.update(bulk)
     lean, rich = bulk["bulk_composition_lean"], bulk["bulk_composition_rich"]
-    separated = bool(np.isfinite(lean) and np.isfinite(rich) and rich - lean > options.equilibrium_tolerance)
+    # apart by more than the tolerance and, where the model has a binodal, by half its gap: a quench's
+    # noise sets bulks a few hundredths apart on the two sides of its contour, not a separation
+    apart = options.equilibrium_tolerance
+    if np.isfinite(out["binodal_lean"]) and np.isfinite(out["binodal_rich"]):
+        apart = max(apart, 0.5 * (out["binodal_rich"] - out["binodal_lean"]))
+    separated = bool(np.isfinite(lean) and np.isfinite(rich) and rich - lean > apart)
     out["separated"] = separated
     out["equilibrium_gap"] = (thermo.equilibrium_gap(lean, rich, out["binodal_lean"], out["binodal_rich"])
                               if separated else math.nan)
@@ -258,9 +263,9 @@ def mixture_findings(steps, options) -> list:
     lean = steps["bulk_composition_lean"].to_numpy(dtype=float)
     rich = steps["bulk_composition_rich"].to_numpy(dtype=float)
     size = steps["interface_size"].to_numpy(dtype=float) if "interface_size" in steps else np.full(len(steps), np.nan)
-    low, high = (float(v) for v in options.range)
-    span = (steps["c_max"].to_numpy(dtype=float) - steps["c_min"].to_numpy(dtype=float)) * abs(high - low) \
-        if "c_max" in steps and "c_min" in steps else np.full(len(steps), np.nan)
+    # (c is the composition's own scale: a field in [-1, 1] or in percent maps onto it)
+    span = (steps["c_max"].to_numpy(dtype=float) - steps["c_min"].to_numpy(dtype=float)
+            if "c_max" in steps and "c_min" in steps else np.full(len(steps), np.nan))
     gap = steps["binodal_rich"].to_numpy(dtype=float) - steps["binodal_lean"].to_numpy(dtype=float)
     mixed_seen = (np.isfinite(lean) & np.isfinite(rich)) | ~(size > 0) | (span < 0.5 * gap)
     state = steps["mixture_state"].astype(str).to_numpy()

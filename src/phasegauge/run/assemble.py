@@ -479,7 +479,7 @@ def findings(steps, droplets, audit: dict, options, skipped: list, *, dimension:
             found.append(Finding("interface_under_resolved", "warning",
                                  f"diffuse interface under-resolved: up to {100 * worst:.3g} % of it has fewer than "
                                  "4 cells across 0.1 < c < 0.9 (common practice)", {"fraction": worst, "threshold": 0.1}))
-    near = boundary_reach_finding(steps)
+    near = boundary_reach_finding(steps, kind)
     found += [near] if near is not None else []
     if "width_cell_data_bias" in steps and kind != "sharp":  # a sharp interface is one to two cells by design
         worst = _worst(steps, "width_cell_data_bias")

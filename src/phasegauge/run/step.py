@@ -297,7 +297,8 @@ def _phase_analyses(step, mesh, ind, options, result, m: dict, velocity: tuple, 
         if "interface" in options.analyses:
             # a mixture run keeps the distances the widths measured: its bulk cells need few more
             widths = interface.interface_metrics(mesh, ind, level=options.level, prepared=prepared,
-                                                 return_distances=options.model is not None, threads=threads)
+                                                 return_distances=options.model is not None, threads=threads,
+                                                 periodic=tuple(options.periodic))
             prepared = None  # the band integrals and values between the bulk values: not held further
             if options.model is not None:
                 widths, measured = widths
