@@ -67,3 +67,31 @@ def test_side_walls_along_the_normal_cut_no_profile():
     # the same elements in a box periodic along y: no boundary within reach at all
     assert boundary_share(mesh, centroids, np.full(4, 0.025), 0.2, periodic=("y",)) == 0.0
     # (the end walls x = 0 and x = 1, 0.5 away along the normal, lie beyond the reach)
+
+
+def test_box_faces_have_axis_normals_whatever_the_point_numbering():
+    # a hexahedral box whose points are numbered in a shuffled order (as a mesher may number them): each
+    # boundary face of the box lies in a plane x, y or z = const, so its unit normal is an axis (geometry)
+    from phasegauge.analysis._boundary_reach import _boundary_faces
+    from phasegauge.model.mesh import Mesh
+
+    box = grid_mesh((4, 4, 4))
+    order = np.random.default_rng(5).permutation(box.n_points)
+    new = np.empty_like(order)
+    new[order] = np.arange(box.n_points)
+    shuffled = Mesh(box.points[order], [(b.cell_type, new[b.connectivity]) for b in box.blocks])
+    centres, normals = _boundary_faces(shuffled)
+    assert centres.shape[0] == 6 * 16
+    assert np.allclose(np.sort(np.abs(normals), axis=1), [0.0, 0.0, 1.0])
+
+
+def test_no_near_boundary_finding_for_a_sharp_interface():
+    # a sharp (volume-of-fluid) interface is one to two cells by design: no profile for a wall to cut
+    # (the rule README's findings table gives); a diffuse one over the threshold is warned of
+    import pandas as pd
+
+    from phasegauge.run._boundary_findings import NEAR_BOUNDARY_SHARE, boundary_reach_finding
+
+    steps = pd.DataFrame({"time": [0.0, 1.0], "interface_near_boundary_fraction": [0.0, 2 * NEAR_BOUNDARY_SHARE]})
+    assert boundary_reach_finding(steps, "sharp") is None
+    assert boundary_reach_finding(steps, "diffuse").kind == "interface_near_boundary"

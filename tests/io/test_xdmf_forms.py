@@ -286,5 +286,17 @@ def test_an_include_of_another_grid_than_the_first_refused(tmp_path):
         '<?xml version="1.0" ?>\n<Xdmf Version="3.0" xmlns:xi="http://www.w3.org/2001/XInclude"><Domain>'
         '<Grid Name="T" GridType="Collection" CollectionType="Temporal">'
         '<xi:include href="s_0.xmf" xpointer="xpointer(//Xdmf/Domain/Grid[2])"/></Grid></Domain></Xdmf>\n')
-    with pytest.raises(SeriesError, match="includes grid 2 of s_0.xmf, but a step file is read by its first grid"):
+    with pytest.raises(SeriesError, match=r"includes s_0.xmf at .*Grid\[2\].*, but a step file is read by its first grid"):
+        Series(str(tmp_path / "run.xmf"))
+
+
+def test_a_file_included_twice_refused(tmp_path):
+    """One step file included twice (its grids meant as two steps) [XInclude]: it would be read twice by
+    its first grid, so it is refused in one line."""
+    _step_file(tmp_path / "s_0.xmf", 0, 0.0)
+    twice = '<xi:include href="s_0.xmf"/>' * 2
+    (tmp_path / "run.xmf").write_text(
+        '<?xml version="1.0" ?>\n<Xdmf Version="3.0" xmlns:xi="http://www.w3.org/2001/XInclude"><Domain>'
+        f'<Grid Name="T" GridType="Collection" CollectionType="Temporal">{twice}</Grid></Domain></Xdmf>\n')
+    with pytest.raises(SeriesError, match="includes s_0.xmf more than once"):
         Series(str(tmp_path / "run.xmf"))

@@ -262,3 +262,14 @@ def test_a_quench_noise_is_mixed_not_separated(tmp_path):
                   analyses=("interface", "conservation"))
     assert not res.steps["separated"].any()
     assert "mixed_inside_spinodal" in [f.kind for f in res.findings]
+
+
+def test_a_double_well_off_the_mapped_scale_is_refused(tmp_path):
+    # a double well written on an order parameter's scale (-1, 1): the measured compositions are on the
+    # mapped scale 0..1, so its bulk values could never be reached; refused in one line with the fix
+    from phasegauge.model.mixture_models import DoubleWellModel
+
+    path = _slab_series(tmp_path, [(LEAN, RICH)], order_parameter=True)
+    with pytest.raises(OptionError, match=r"bulk values \(-1, 1\) lie outside \[0, 1\].*lean = 0, rich = 1"):
+        measure(path, "x", range=(-1, 1), model=DoubleWellModel(lean=-1.0, rich=1.0), temperature=300.0,
+                analyses=("interface",))

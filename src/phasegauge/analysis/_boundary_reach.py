@@ -34,12 +34,16 @@ def _boundary_faces(mesh):
         edge = b - a
         normal = np.c_[edge[:, 1], -edge[:, 0]]
         centre = 0.5 * (a + b)
-    else:  # quads (corners sorted: the normal from the two diagonals' cross product is unsigned) and
-        # triangles padded with -1 in front
+    else:  # quads and triangles padded with -1 in front; the corners are sorted by number, not in their
+        # loop, so the normal is the largest of the cross products of three corners' triangles (any three
+        # corners of a flat quad span its plane; the sign does not matter here)
         tri = corners[:, 0] < 0
         first = np.where(tri, corners[:, 1], corners[:, 0])
         p0, p1, p2, p3 = xyz[first], xyz[corners[:, 1]], xyz[corners[:, 2]], xyz[corners[:, 3]]
-        normal = np.where(tri[:, None], np.cross(p2 - p1, p3 - p1), np.cross(p3 - p0, p2 - p1))
+        candidates = np.stack([np.cross(p1 - p0, p2 - p0), np.cross(p1 - p0, p3 - p0), np.cross(p2 - p0, p3 - p0)])
+        candidates[:, tri] = np.cross(p2 - p1, p3 - p1)[None, tri]
+        best = np.argmax(np.linalg.norm(candidates, axis=2), axis=0)
+        normal = candidates[best, np.arange(corners.shape[0])]
         centre = np.where(tri[:, None], (p1 + p2 + p3) / 3.0, 0.25 * (p0 + p1 + p2 + p3))
     length = np.linalg.norm(normal, axis=1)
     return centre, normal / np.where(length > 0, length, 1.0)[:, None]

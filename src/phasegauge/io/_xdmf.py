@@ -85,6 +85,9 @@ def lone_collection(files: list, where: str):
                       fix=f"give one collection's file, such as {collections[0][0]}")
 
 
+#: the xpointers of an included file's first grid, the one a step file is read by
+_FIRST_GRID = ("xpointer(//Xdmf/Domain/Grid[1])", "xpointer(/Xdmf/Domain/Grid[1])", "element(/1/1/1)")
+
 #: an XInclude element (``<xi:include href=...>``)
 _XINCLUDE = "{http://www.w3.org/2001/XInclude}include"
 
@@ -112,11 +115,11 @@ def included_files(path: str):
     folder = os.path.dirname(os.path.abspath(path))
     includes = [child for child in collection if child.tag == _XINCLUDE and child.get("href")]
     hrefs = [child.get("href") for child in includes]
-    for child in includes:  # a step file is read as a plain file: its first grid
-        index = re.search(r"Grid\[(\d+)\]", child.get("xpointer") or "")
-        if index is not None and int(index.group(1)) != 1:
-            raise SeriesError(f"the collection includes grid {index.group(1)} of {child.get('href')}, but a step file "
-                              "is read by its first grid", where=path,
+    for child in includes:  # a step file is read as a plain file: its first grid, the only xpointer taken
+        pointer = (child.get("xpointer") or "").replace(" ", "")
+        if pointer and pointer not in _FIRST_GRID:
+            raise SeriesError(f"the collection includes {child.get('href')} at '{child.get('xpointer')}', but a step "
+                              "file is read by its first grid (xpointer(//Xdmf/Domain/Grid[1]))", where=path,
                               fix="write one grid a step file (the fluid's first), or give a 'time,path' listing")
     twice = sorted({h for h in hrefs if hrefs.count(h) > 1})
     if twice:
