@@ -342,6 +342,13 @@ def equilibrium(model_file, temperature, temperatures, count, as_json, out, over
             click.echo(f"at {record['temperature']:g} K: two phases, binodal_lean {record['binodal_lean']:.6f}, "
                        f"binodal_rich {record['binodal_rich']:.6f}")
             click.echo(f"spinodal: {record['spinodal_lean']:.6f} to {record['spinodal_rich']:.6f}")
+            if len(record["two_phase_regions"]) > 1:  # the pairs above are the widest and the outermost
+                shown = ", ".join(f"{a:.4g} to {b:.4g}" for a, b in record["two_phase_regions"])
+                click.echo(f"  note: {len(record['two_phase_regions'])} two-phase regions: {shown} (the binodal "
+                           "above is the widest; the others to the composition grid)")
+                shown = ", ".join(f"{a:.4g} to {b:.4g}" for a, b in record["unstable_ranges"])
+                click.echo(f"  note: unstable ranges: {shown} (the spinodal above spans them and the stable gap "
+                           "between)")
         else:
             click.echo(f"at {record['temperature']:g} K: one stable phase (no binodal)")
         lo, hi = record["critical_search"]

@@ -42,3 +42,35 @@ def test_states_of_a_model_with_two_regions(composition):
     else:
         expected = "stable"
     assert mixture_state(model, T, composition) == expected
+
+
+def test_all_regions_against_the_hull_and_the_curvature():
+    # every two-phase region (Qhull's lower hull bridges, to the grid spacing of 0.005) and every unstable
+    # range (the ends of numpy's concave runs, to the fine grid's spacing)
+    from phasegauge.analysis._binodal import all_regions
+
+    model, x, bridges, concave = _reference()
+    regions, unstable = all_regions(model, T)
+    assert len(regions) == len(bridges) == 2
+    for (a, b), (ra, rb) in zip(regions, bridges):
+        assert a == pytest.approx(ra, abs=5e-3) and b == pytest.approx(rb, abs=5e-3)
+    edges = np.flatnonzero(np.diff(concave.astype(int)))
+    runs = [(x[edges[i] + 1], x[edges[i + 1]]) for i in range(0, edges.size, 2)]
+    assert len(unstable) == len(runs) == 2
+    for (a, b), (ra, rb) in zip(unstable, runs):
+        assert a == pytest.approx(ra, abs=2e-5) and b == pytest.approx(rb, abs=2e-5)
+
+
+def test_the_equilibrium_command_names_both_regions():
+    import json
+
+    from click.testing import CliRunner
+
+    from phasegauge.cli import main
+
+    text = CliRunner().invoke(main, ["equilibrium", MODEL, "--temperature", "100"]).output
+    assert "note: 2 two-phase regions: 0.0003922 to 0.5188, 0.534 to 0.9999" in text
+    record = json.loads(CliRunner().invoke(main, ["equilibrium", MODEL, "--temperature", "100", "--json"]).output)
+    assert len(record["two_phase_regions"]) == 2 and len(record["unstable_ranges"]) == 2
+    one = json.loads(CliRunner().invoke(main, ["equilibrium", MODEL, "--temperature", "298.15", "--json"]).output)
+    assert one["two_phase_regions"] == [[one["binodal_lean"], one["binodal_rich"]]]

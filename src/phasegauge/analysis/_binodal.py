@@ -25,7 +25,7 @@ from ..errors import AnalysisError, OptionError
 from ..model.mixture_models import DoubleWellModel
 
 __all__ = ["BinaryEquilibrium", "CriticalPoint", "spinodal", "binodal", "critical_points", "phase_diagram",
-           "equilibrium_at"]
+           "equilibrium_at", "all_regions"]
 
 _STEP = 1e-20            # complex step
 _U_LIMIT = 36.0          # logit bound: x down to about 2e-16
@@ -310,6 +310,44 @@ def binodal(model, temperature, *, spinodal_pair=None):
                                 "if they are right")
     lean[rows], rich[rows], confirmed[rows] = xa, xb, good
     return lean, rich, confirmed
+
+
+#: a bridge of the grid's hull narrower than this (in mole fraction) is the round-off of the free energy
+#: near a pure component, not a two-phase region
+MIN_REGION = 1e-6
+
+
+def all_regions(model, temperature, equilibrium=None) -> tuple:
+    """Every two-phase region and every unstable range at one temperature, as ``(regions, unstable)``
+    lists of ``(lean, rich)`` pairs in order of composition.
+
+    The widest two-phase region is the refined binodal of ``equilibrium`` (:func:`equilibrium_at`);
+    the others are the bridges of the lower convex hull of Delta g_mix / RT on the composition grid
+    (to a grid spacing, about 0.004 in the middle and finer towards the ends). The unstable ranges are
+    where the free energy is concave, each end refined to a root of the curvature. A model with one
+    region has one of each (or none: one stable phase).
+    """
+    t = float(temperature)
+    eq = equilibrium_at(model, t) if equilibrium is None else equilibrium
+    if not eq.separates:
+        return [], []
+    if isinstance(model, DoubleWellModel):
+        return [(eq.binodal_lean, eq.binodal_rich)], [(eq.spinodal_lean, eq.spinodal_rich)]
+    regions = [(eq.binodal_lean, eq.binodal_rich)]
+    regions += [(float(a), float(b)) for a, b, _, _ in _hull_bridges(model, t)
+                if (b <= eq.binodal_lean or a >= eq.binodal_rich) and b - a > MIN_REGION]
+    x = _grid_x()
+    concave = _stability(model, x, t) < 0
+    edges = np.flatnonzero(np.diff(concave.astype(np.int8)))  # a change between x[k] and x[k + 1]
+    lo, hi = x[edges], x[edges + 1]
+    roots = _bracketed_root(lambda v: _stability(model, v, np.full(v.shape, t)), lo, hi) if edges.size else lo
+    ends = list(roots)
+    if concave[0]:
+        ends.insert(0, float(x[0]))
+    if concave[-1]:
+        ends.append(float(x[-1]))
+    unstable = [(float(a), float(b)) for a, b in zip(ends[0::2], ends[1::2])]
+    return sorted(regions), unstable
 
 
 def equilibrium_at(model, temperature) -> BinaryEquilibrium:

@@ -44,13 +44,17 @@ def equilibrium_record(model, temperature, *, path="") -> dict:
     dict
         ``temperature, state ('two phases' | 'one stable phase'), binodal_lean, binodal_rich,
         spinodal_lean, spinodal_rich, critical_temperature, critical_composition, kind,
-        critical_points, critical_search`` plus the model's kind and component (NaN / None where
-        there is none).
+        critical_points, critical_search, two_phase_regions, unstable_ranges`` plus the model's kind
+        and component (NaN / None where there is none). ``two_phase_regions`` lists every region as
+        ``[lean, rich]`` (the binodal pair is the widest; the others on the composition grid) and
+        ``unstable_ranges`` every range where the free energy is concave (the spinodal pair spans them).
     """
+    from ..analysis._binodal import all_regions
     from ..analysis.thermo import equilibrium_at
 
     t = _check_temperature(temperature, "--temperature")
     eq = equilibrium_at(model, t)
+    regions, unstable = all_regions(model, t, eq)
     search = critical_search_range(temperature=t)
     critical = _critical_records(model, search)
     first = critical[0] if critical else {"temperature": float("nan"), "composition": float("nan"), "kind": None}
@@ -60,7 +64,8 @@ def equilibrium_record(model, temperature, *, path="") -> dict:
                    "spinodal_lean": eq.spinodal_lean, "spinodal_rich": eq.spinodal_rich,
                    "confirmed": eq.confirmed, "critical_temperature": first["temperature"],
                    "critical_composition": first["composition"], "kind": first["kind"],
-                   "critical_points": critical, "critical_search": list(search)})
+                   "critical_points": critical, "critical_search": list(search),
+                   "two_phase_regions": [list(r) for r in regions], "unstable_ranges": [list(r) for r in unstable]})
     return record
 
 
