@@ -143,8 +143,9 @@ def inspect(path, as_json, scan, sort_by_time):
 
     PATH is a mesh file (.vtu, .vtk, .xdmf, .xmf; structured .vti, .vtr, .vts
     and legacy structured .vtk through VTK's readers; VTK multiblock .vtm and
-    parallel .pvtu, .pvti, .pvtr, .pvts files; not .pvd collections), an XDMF time series, a folder of numbered files, a folder of step folders, a
-    quoted glob or a 'time,path' step listing (.steps, .txt, .csv, .list).
+    parallel .pvtu, .pvti, .pvtr, .pvts files), an XDMF time series, a folder of
+    numbered files, a folder of step folders, a quoted glob or a 'time,path'
+    step listing (.steps, .txt, .csv, .list).
     """
     from .io.describe import describe_series, format_description
 

@@ -78,10 +78,12 @@ def test_ghost_cells_left_out_of_a_join(tmp_path):
         phasegauge.measure(str(tmp_path / "overlap.vtm"), "c", analyses=("conservation",))
 
 
-def test_pvd_collection_refused_with_the_ways_to_give_the_steps(tmp_path):
-    (tmp_path / "run.pvd").write_text('<?xml version="1.0"?><VTKFile type="Collection"><Collection/></VTKFile>')
-    with pytest.raises(UnreadableFileError, match=r"\.pvd collection of step files, which is not read.*listing"):
-        Series(str(tmp_path / "run.pvd"))
+def test_an_xml_collection_of_step_files_refused_with_the_ways_to_give_the_steps(tmp_path):
+    # an XML index of step files written for another program (VTK's XML root, type "Collection"), told by
+    # its head whatever its name: refused in one line with the folder, glob and listing routes
+    (tmp_path / "run.index").write_text('<?xml version="1.0"?><VTKFile type="Collection"><Collection/></VTKFile>')
+    with pytest.raises(UnreadableFileError, match=r"an XML collection of step files, which is not read.*listing"):
+        Series(str(tmp_path / "run.index"))
 
 
 def test_files_named_by_an_index_left_out_of_a_folder(tmp_path):

@@ -26,6 +26,7 @@ from __future__ import annotations
 import dataclasses
 import glob as globmod
 import os
+import re
 import warnings
 from dataclasses import dataclass
 
@@ -330,11 +331,11 @@ class Series:
             grids = temporal_grids(path)
             if grids is not None:
                 return self._collection_steps(path, grids)
-        if path.lower().endswith(".pvd"):
-            raise UnreadableFileError("is a .pvd collection of step files, which is not read", where=path,
-                                      fix="give the folder of the step files, a quoted glob of them, or a 'time,path' "
-                                          "listing of the steps")
         if not _is_mesh_file(path):
+            if _is_xml_collection(path):  # another program's index of step files: not an open format here
+                raise UnreadableFileError("is an XML collection of step files, which is not read", where=path,
+                                          fix="give the folder of the step files, a quoted glob of them, or a "
+                                              "'time,path' listing of the steps")
             surface = surface_file_problem(path)
             if surface is not None:
                 raise surface
@@ -514,6 +515,17 @@ class Series:
         state = self.__dict__.copy()
         state["_xdmf_readers"] = {}
         return state
+
+
+def _is_xml_collection(path: str) -> bool:
+    """True for a VTK-style XML file whose root is a collection of other files (``type="Collection"``),
+    told by its head whatever its name."""
+    try:
+        with open(path, "rb") as handle:
+            head = handle.read(2048)
+    except OSError:
+        return False
+    return re.search(rb'<VTKFile[^>]*type="Collection"', head) is not None
 
 
 def _without_included(files: list) -> list:
