@@ -25,7 +25,7 @@ from ..errors import AnalysisError, OptionError
 from ..model.mixture_models import DoubleWellModel
 
 __all__ = ["BinaryEquilibrium", "CriticalPoint", "spinodal", "binodal", "critical_points", "phase_diagram",
-           "equilibrium_at", "all_regions"]
+           "equilibrium_at", "all_regions", "other_regions"]
 
 _STEP = 1e-20            # complex step
 _U_LIMIT = 36.0          # logit bound: x down to about 2e-16
@@ -317,6 +317,14 @@ def binodal(model, temperature, *, spinodal_pair=None):
 MIN_REGION = 1e-6
 
 
+def other_regions(model, temperature: float, lean: float, rich: float) -> list:
+    """The two-phase regions beside the widest one (``lean``, ``rich``: the refined binodal), as
+    ``(lean, rich)`` pairs: the bridges of the lower convex hull of Delta g_mix / RT on the composition
+    grid that lie clear of it and are wider than :data:`MIN_REGION`."""
+    return [(float(a), float(b)) for a, b, _, _ in _hull_bridges(model, float(temperature))
+            if (b <= lean or a >= rich) and b - a > MIN_REGION]
+
+
 def all_regions(model, temperature, equilibrium=None) -> tuple:
     """Every two-phase region and every unstable range at one temperature, as ``(regions, unstable)``
     lists of ``(lean, rich)`` pairs in order of composition.
@@ -333,9 +341,7 @@ def all_regions(model, temperature, equilibrium=None) -> tuple:
         return [], []
     if isinstance(model, DoubleWellModel):
         return [(eq.binodal_lean, eq.binodal_rich)], [(eq.spinodal_lean, eq.spinodal_rich)]
-    regions = [(eq.binodal_lean, eq.binodal_rich)]
-    regions += [(float(a), float(b)) for a, b, _, _ in _hull_bridges(model, t)
-                if (b <= eq.binodal_lean or a >= eq.binodal_rich) and b - a > MIN_REGION]
+    regions = [(eq.binodal_lean, eq.binodal_rich)] + other_regions(model, t, eq.binodal_lean, eq.binodal_rich)
     x = _grid_x()
     concave = _stability(model, x, t) < 0
     edges = np.flatnonzero(np.diff(concave.astype(np.int8)))  # a change between x[k] and x[k + 1]

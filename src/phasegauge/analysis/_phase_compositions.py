@@ -22,7 +22,7 @@ from ..model.axes import AXIS_INDEX
 from ..model.contour import Contour
 from ..model.corners import corner_mean
 from ..model.mixture_models import DoubleWellModel
-from ._binodal import MIN_REGION, _hull_bridges, _stability, binodal, spinodal
+from ._binodal import _stability, binodal, other_regions, spinodal
 from ._labelling import _normalize_periodic
 from ._signed_distance import _ContourGeometry, _maybe_near_cells, _search_sets, _signed_distance
 from ._sums import dot
@@ -302,9 +302,8 @@ def mixture_state(model, temperature, composition, *, equilibrium=None):
         else:  # the curvature itself: a model may have two unstable ranges at one temperature, with a
             # stable gap between them inside the outermost spinodal pair; and a two-phase region beside
             # the widest (the binodal's), found on the grid's convex hull
-            for low, high, _, _ in _hull_bridges(model, float(temperature)):
-                if (high <= b_lean or low >= b_rich) and high - low > MIN_REGION:  # another region
-                    state[(x > low) & (x < high)] = "metastable"
+            for low, high in other_regions(model, float(temperature), b_lean, b_rich):
+                state[(x > low) & (x < high)] = "metastable"
             inner = (x > 0) & (x < 1)
             unstable = np.zeros(x.shape, dtype=bool)
             unstable[inner] = _stability(model, x[inner], float(temperature)) < 0

@@ -44,7 +44,8 @@ from ._claims import CheckedFiles, check_hdf5_claims
 from ._series_gaps import (RESOLUTION_SHARE, coarse_time_share, two_times, warn_series_gaps,
                            warn_time_resolution)
 from ._series_names import check_one_family, digits_masked, first_three, natural_key, warn_decimal_doubt
-from ._xdmf import collection_times, grid_time, included_files, lone_collection, temporal_grids, xdmf_data_files
+from ._xdmf import (collection_times, collections_among, grid_time, included_files, lone_collection,
+                    temporal_grids, xdmf_data_files)
 
 __all__ = ["Series", "StepInfo", "Step", "open_series", "natural_key", "read_listing",
            "LISTING_SUFFIXES"]
@@ -275,8 +276,9 @@ class Series:
         if os.path.isdir(path):
             files = sorted((os.path.join(path, f) for f in os.listdir(path) if _is_mesh_file(os.path.join(path, f))),
                            key=natural_key)
-            files = _without_included(without_indexed_files(files))
-            collection = lone_collection(files, path)
+            found = collections_among(files)  # each XDMF file read once for the two below
+            files = _without_included(without_indexed_files(files), found)
+            collection = lone_collection(files, path, found)
             if collection is not None:  # a folder of one XDMF time collection (and its HDF5 files)
                 return self._collection_steps(collection, temporal_grids(collection))
             if not files:
@@ -302,12 +304,13 @@ class Series:
                 warn_series_gaps(files, path, steps)
             return steps
         if any(ch in path for ch in "*?[") and not os.path.exists(path):
-            files = _without_included(without_indexed_files(sorted((f for f in globmod.glob(path) if _is_mesh_file(f)),
-                                                                   key=natural_key)))
+            files = without_indexed_files(sorted((f for f in globmod.glob(path) if _is_mesh_file(f)), key=natural_key))
+            found = collections_among(files)
+            files = _without_included(files, found)
             if not files:
                 raise SeriesError("the pattern matches no mesh files", where=path,
                                   fix="check the pattern; quote it so the shell does not expand it")
-            collection = lone_collection(files, path)
+            collection = lone_collection(files, path, found)
             if collection is not None:
                 return self._collection_steps(collection, temporal_grids(collection))
             self.kind = "glob"
@@ -528,12 +531,10 @@ def _is_xml_collection(path: str) -> bool:
     return re.search(rb'<VTKFile[^>]*type="Collection"', head) is not None
 
 
-def _without_included(files: list) -> list:
-    """``files`` without the step files an XDMF collection among them includes (read through it)."""
-    named = set()
-    for f in files:
-        if f.lower().endswith((".xdmf", ".xmf")):
-            named.update(os.path.abspath(g) for g in included_files(f) or ())
+def _without_included(files: list, collections: dict) -> list:
+    """``files`` without the step files an XDMF collection among them includes (read through it);
+    ``collections``: :func:`._xdmf.collections_among` of ``files``."""
+    named = {os.path.abspath(g) for _, included in collections.values() for g in included or ()}
     return [f for f in files if os.path.abspath(f) not in named] if named else files
 
 

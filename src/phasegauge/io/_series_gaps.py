@@ -28,7 +28,8 @@ def two_times(a: float, b: float) -> tuple:
     """``a`` and ``b`` as text, with the fewest significant digits (six or more) that tell them apart."""
     for digits in range(6, 18):
         shown = (f"{a:.{digits}g}", f"{b:.{digits}g}")
-        if shown[0] != shown[1] if a != b else float(shown[0]) == a:
+        told = shown[0] != shown[1] if a != b else float(shown[0]) == a  # equal times: shown exactly
+        if told:
             return shown
     return repr(float(a)), repr(float(b))
 

@@ -19,8 +19,8 @@ from ._meshio_adapter import read_with_meshio
 from ._meshio_xdmf import offset_cells, read_timed_grid
 from ._xdmf_forms import base_offset, form_problem
 
-__all__ = ["FORMATS", "temporal_grids", "collection_times", "lone_collection", "grid_time", "xdmf_data_files",
-           "data_file_names", "included_files", "peek_xdmf_time"]
+__all__ = ["FORMATS", "temporal_grids", "collection_times", "collections_among", "lone_collection", "grid_time",
+           "xdmf_data_files", "data_file_names", "included_files", "peek_xdmf_time"]
 
 #: an HDF5 reference in a DataItem: ``file.h5:/path``
 _HDF5_REFERENCE = re.compile(r">\s*([^<>:\s]+\.(?:h5|hdf5|hdf))\s*:")
@@ -41,6 +41,11 @@ def temporal_grids(path: str):
     except (ET.ParseError, OSError) as exc:
         raise UnreadableFileError(f"not a readable XDMF file ({exc})", where=path,
                                   fix="check that the file is complete XML") from None
+    return _grids_of(root, path)
+
+
+def _grids_of(root, path: str):
+    """The grids of the temporal collection under ``root`` (the XML of file ``path``), or None."""
     collections = [grid for grid in root.iter("Grid")
                    if grid.get("GridType") == "Collection" and grid.get("CollectionType") == "Temporal"]
     if len(collections) > 1:  # one a field, as some writers do: which grid a step's field is in is not clear
@@ -58,20 +63,36 @@ def _temporal_collection(root):
     return None
 
 
-def lone_collection(files: list, where: str):
-    """The file of an XDMF temporal collection when it is the only mesh file of a folder or a glob's
-    files, else None; refused beside other mesh files (several collections, or a collection and step
-    files), whose steps would not be clear. A file that does not parse is no collection here: reading
-    it as a step says what is wrong with it."""
-    collections = []
+def collections_among(files: list) -> dict:
+    """The XDMF files among ``files`` that hold a temporal collection, each read once:
+    ``{file: (grids, included step files or None)}``. A file that does not parse is left out (reading
+    it as a step says what is wrong with it).
+
+    Raises
+    ------
+    SeriesError
+        A file of two collections, or a collection's includes that are not read (:func:`included_files`).
+    """
+    found = {}
     for f in files:
         if f.lower().endswith((".xdmf", ".xmf")):
             try:
-                grids = temporal_grids(f)
-            except UnreadableFileError:
+                root = ET.parse(f).getroot()
+            except (ET.ParseError, OSError):
                 continue
+            grids = _grids_of(root, f)
             if grids is not None:
-                collections.append((f, len(grids) or len(included_files(f) or ())))
+                found[f] = (grids, None if grids else _includes_of(root, f))
+    return found
+
+
+def lone_collection(files: list, where: str, collections: dict | None = None):
+    """The file of an XDMF temporal collection when it is the only mesh file of a folder or a glob's
+    files, else None; refused beside other mesh files (several collections, or a collection and step
+    files), whose steps would not be clear. ``collections``: :func:`collections_among` of ``files``
+    when read already."""
+    found = collections_among(files) if collections is None else collections
+    collections = [(f, len(grids) or len(included or ())) for f, (grids, included) in found.items() if f in files]
     if not collections:
         return None
     if len(files) == 1:
@@ -109,6 +130,11 @@ def included_files(path: str):
         root = ET.parse(path).getroot()
     except (ET.ParseError, OSError):
         return None
+    return _includes_of(root, path)
+
+
+def _includes_of(root, path: str):
+    """:func:`included_files` of the XML ``root`` of file ``path``."""
     collection = _temporal_collection(root)
     if collection is None or any(child.tag == "Grid" for child in collection):
         return None

@@ -107,7 +107,7 @@ class MeshOutline:
             return None
         moved = np.abs(other.bounds - self.bounds)
         if moved.max() > DOMAIN_TOLERANCE * size:
-            side, axis = np.unravel_index(int(np.argmax(moved)), moved.shape)
+            axis = int(np.argmax(moved)) % moved.shape[1]  # the axis whose lower or upper bound moved most
             name = "xyz"[axis]
             return (f"{name} from [{self.bounds[0, axis]:.6g}, {self.bounds[1, axis]:.6g}] to "
                     f"[{other.bounds[0, axis]:.6g}, {other.bounds[1, axis]:.6g}]")
