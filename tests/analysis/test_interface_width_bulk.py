@@ -57,6 +57,24 @@ def test_bulk_plateaus_of_a_tanh_drop_and_of_an_ideal_field():
     assert low == pytest.approx(0.01, abs=1e-4) and high == 1.0
 
 
+# A partially miscible pair's phases sit at 0.3 and 0.7 (a regular solution between its spinodal and
+# critical point, or NRTL): every estimator gives the 5-95 % thickness between those plateaus within 3 %
+# (before: plateaus more than 0.25 from 0 or 1 were taken as 0 and 1, and the threshold-free width read
+# 0.21 of c (1 - c) over the whole domain); a drop whose top only reaches 0.7 keeps its ideal 1.
+def test_plateaus_at_three_and_seven_tenths_are_the_bulks():
+    mesh = grid_mesh((128, 128), kind="quad")
+    eps = 0.01
+    r = np.linalg.norm(mesh.coordinates[:, :2] - 0.5, axis=1)
+    c = 0.3 + 0.4 * 0.5 * (1 + np.tanh((0.25 - r) / (2 * eps)))
+    low, high, _ = bulk_plateaus(c, 0.5)
+    assert low == pytest.approx(0.3, abs=1e-4) and high == pytest.approx(0.7, abs=1e-4)
+    m = interface_metrics(mesh, c)
+    for key in ESTIMATORS:
+        assert m[key] / (BAND * eps) == pytest.approx(1.0, abs=0.03), key
+    small = 0.7 * 0.5 * (1 + np.tanh((0.05 - r) / (2 * eps)))  # 6 cells across, no bulk inside
+    assert bulk_plateaus(small, 0.35)[1] == 1.0
+
+
 # A drop relaxed by the Cahn-Hilliard solver, its order parameter mapped to c with the bulk at
 # 0.01 and 0.99 (as a range given a little wide): the four estimates agree within 3 % of each
 # other and of 4.164 eps_CH.

@@ -264,6 +264,25 @@ def test_a_quench_noise_is_mixed_not_separated(tmp_path):
     assert "mixed_inside_spinodal" in [f.kind for f in res.findings]
 
 
+def test_sharp_plateaus_under_half_the_binodal_gap_are_separated(tmp_path):
+    # two flat plateaus with a sharp tanh interface between them, at 0.3 / 0.7 and 0.45 / 0.55 (both
+    # inside the analytic spinodal 0.21-0.79, apart by less than half the binodal's gap 0.86): the bulks
+    # are measured within 0.002 of the built values, the run is separated with its bulks off the analytic
+    # binodal (0.0707 / 0.9293) by 0.229 and 0.379, not "still mixed" (before: the plateaus were taken as
+    # 0 and 1, no bulk was measured, and the narrow span read as a quench's noise)
+    truth = [(0.3, 0.7), (0.45, 0.55)]
+    res = measure(_slab_series(tmp_path, truth), "x", model=RegularSolutionModel(A_a=3.0), temperature=300.0,
+                  analyses=("interface",))
+    steps = res.steps
+    for k, (lean, rich) in enumerate(truth):
+        assert steps["bulk_composition_lean"].iat[k] == pytest.approx(lean, abs=2e-3)
+        assert steps["bulk_composition_rich"].iat[k] == pytest.approx(rich, abs=2e-3)
+        assert steps["equilibrium_gap"].iat[k] == pytest.approx(max(lean - LEAN, RICH - rich), abs=2e-3)
+    assert steps["separated"].all()
+    kinds = [f.kind for f in res.findings]
+    assert "mixed_inside_spinodal" not in kinds and "binodal_gap" in kinds
+
+
 def test_a_double_well_off_the_mapped_scale_is_refused(tmp_path):
     # a double well written on an order parameter's scale (-1, 1): the measured compositions are on the
     # mapped scale 0..1, so its bulk values could never be reached; refused in one line with the fix

@@ -196,6 +196,10 @@ def _cell_mixed(mesh: Mesh, indicator, low: float, high: float, tail: float):
 
 #: bulk values within this of 0 and 1 are taken as 0 and 1 (no rescaling)
 PLATEAU_TOLERANCE = 1e-3
+#: a plateau beyond 0.25 of its ideal value counts when this share of its side's values lies within
+#: :data:`PLATEAU_BAND` of it (see :func:`bulk_plateaus`)
+PLATEAU_SHARE = 0.2
+PLATEAU_BAND = 0.01
 
 
 def bulk_plateaus(c_point: np.ndarray, level: float) -> tuple[float, float, float]:
@@ -215,7 +219,10 @@ def bulk_plateaus(c_point: np.ndarray, level: float) -> tuple[float, float, floa
         (0.5th or 99.5th percentile), three times the median of the side's
         values within 0.05. A side keeps its ideal value (0 or 1) when the
         result moves more than 0.01 from its extreme (no plateau: the
-        inside of a thin filament), lies beyond 0.25 of the ideal, or lies
+        inside of a thin filament), lies beyond 0.25 of the ideal with
+        less than a fifth of the side's values within 0.01 of it (the top
+        of a drop that never reached its bulk, not the bulk of a partially
+        miscible phase at 0.3), or lies
         within three scaled MADs of those values of it (a smooth profile
         still approaching its ideal, not a bulk sitting off it).
         ``(0.0, 1.0)`` when both lie within ``PLATEAU_TOLERANCE`` (1e-3) of
@@ -254,7 +261,10 @@ def bulk_plateaus(c_point: np.ndarray, level: float) -> tuple[float, float, floa
                 break
             g = median
         spread = 1.4826 * float(np.median(np.abs(near - g)))
-        if abs(g - extreme) > 0.01 or abs(g - ideal) > 0.25 or abs(g - ideal) <= 3.0 * spread:
+        # beyond 0.25 of the ideal, a plateau must hold a fifth of its side (a bulk, as a partially
+        # miscible pair's phases sit at 0.3 and 0.7; not the top of a drop that never reached its bulk)
+        held = np.count_nonzero(np.abs(side - g) <= PLATEAU_BAND) >= PLATEAU_SHARE * side.size
+        if abs(g - extreme) > 0.01 or (abs(g - ideal) > 0.25 and not held) or abs(g - ideal) <= 3.0 * spread:
             # no plateau on this side (the inside of a thin filament, a profile still
             # approaching its ideal value): the ideal value
             plateaus.append(ideal)
