@@ -70,6 +70,45 @@ def test_side_walls_along_the_normal_cut_no_profile():
     # (the end walls x = 0 and x = 1, 0.5 away along the normal, lie beyond the reach)
 
 
+def test_a_facing_wall_behind_many_nearer_side_wall_faces_is_found():
+    # a slab across a narrow channel 0.1 before its end wall x = 1 (normal along x, cells of 0.0025):
+    # each element's normal line meets the end wall 0.1 away, within the reach 0.2, so the whole interface
+    # counts (geometry); about 80 side-wall edges lie nearer than the end wall to the elements by the walls
+    # (before: only the 16 nearest faces were looked at, and the end wall was missed there)
+    h = 0.0025
+    mesh = grid_mesh((400, 20), bounds=[(0.0, 1.0), (0.0, 0.05)], kind="quad")
+    centroids = np.c_[np.full(20, 0.9), (np.arange(20) + 0.5) * h, np.zeros(20)]
+    normals = np.tile([1.0, 0.0, 0.0], (20, 1))
+    assert boundary_share(mesh, centroids, np.full(20, h), 0.2, normals=normals, lateral=h) == 1.0
+    # the end wall beyond the reach: nothing
+    assert boundary_share(mesh, centroids, np.full(20, h), 0.09, normals=normals, lateral=h) == 0.0
+
+
+def test_share_against_every_face_tested_one_by_one():
+    # random elements and normals in a box of tetrahedra: the share equals the one from testing every
+    # boundary face against every element with numpy (the definition, without the searches)
+    from phasegauge.analysis._boundary_reach import _boundary_faces
+
+    mesh = grid_mesh((12, 10, 8), kind="tetra")
+    rng = np.random.default_rng(11)
+    at = rng.uniform(0.0, 1.0, (400, 3))
+    normals = rng.normal(size=(400, 3))
+    normals /= np.linalg.norm(normals, axis=1)[:, None]
+    sizes = rng.uniform(0.5, 1.5, 400)
+    centre, face_normal = _boundary_faces(mesh)
+    for reach, lateral in ((0.3, 0.1), (0.15, 0.02), (0.5, 0.05)):
+        offset = centre[None, :, :] - at[:, None, :]
+        square = (offset ** 2).sum(axis=2)
+        along = np.einsum("ikj,ij->ik", offset, normals)
+        facing = np.abs(normals @ face_normal.T) >= np.cos(np.pi / 4)
+        cut = ((square < reach ** 2) & (square - along ** 2 <= lateral ** 2) & facing).any(axis=1)
+        share = boundary_share(mesh, at, sizes, reach, normals=normals, lateral=lateral)
+        assert share == pytest.approx(sizes[cut].sum() / sizes.sum(), abs=1e-12)
+        assert 0.0 < share < 1.0
+        anywhere = (square < reach ** 2).any(axis=1)
+        assert boundary_share(mesh, at, sizes, reach) == pytest.approx(sizes[anywhere].sum() / sizes.sum(), abs=1e-12)
+
+
 def test_box_faces_have_axis_normals_whatever_the_point_numbering():
     # a hexahedral box whose points are numbered in a shuffled order (as a mesher may number them): each
     # boundary face of the box lies in a plane x, y or z = const, so its unit normal is an axis (geometry)

@@ -16,8 +16,12 @@ __all__ = ["boundary_share"]
 
 #: buckets along the longest side of the box of the boundary's points (:func:`_boundary_buckets`)
 _BUCKETS = 64
-#: nearest boundary faces looked at from each interface element
-_NEAREST = 16
+#: at most this many points along each half of an element's normal line (:func:`_facing_cut`)
+_MAX_SAMPLES = 64
+#: faces first asked for near each point of a line; a point with this many within its radius asks for all
+_FIRST = 16
+#: line points per pass of :func:`_facing_cut` (the pass's temporaries stay small)
+_CHUNK = 1 << 16
 #: a boundary face faces an element when their normals lie within 45 degrees of each other
 _FACING = np.cos(np.pi / 4)
 
@@ -96,9 +100,10 @@ def boundary_share(mesh, centroids: np.ndarray, sizes: np.ndarray, reach: float,
     without elements or reach.
 
     Elements are first passed over where a grid of buckets (made once a mesh) shows no boundary face
-    within reach (exact: a lower bound); of each other element's faces within reach the 16 nearest are
-    looked at (a facing wall beyond 16 nearer faces is missed). A seam of hanging faces where a mesh is
-    refined is taken for a boundary (its faces are owned by one cell).
+    within reach (exact: a lower bound); each other element's normal line is searched at points a
+    ``lateral`` apart (:func:`_facing_cut`: every face it could count lies within a radius of one of
+    them), so a facing wall is found however many side-wall faces lie nearer. A seam of hanging faces
+    where a mesh is refined is taken for a boundary (its faces are owned by one cell).
     """
     from ..model.axes import AXIS_INDEX
 
@@ -111,26 +116,77 @@ def boundary_share(mesh, centroids: np.ndarray, sizes: np.ndarray, reach: float,
     if found is None:
         return 0.0
     tree, face_normals = found
-    lo, side, shape, bound = mesh.memo(("boundary_buckets", wrapped), lambda: _boundary_buckets(tree.data))
+    buckets = mesh.memo(("boundary_buckets", wrapped), lambda: _boundary_buckets(tree.data))
     at = np.asarray(centroids, dtype=float)[:, axes]
-    bucket = np.clip(((at - lo) / side).astype(np.int64), 0, np.array(shape) - 1)
-    outside = np.any((at < lo - reach) | (at > lo + np.array(shape) * side + reach), axis=1)
-    rows = np.flatnonzero(~outside & (bound[tuple(bucket.T)] <= reach))
+    rows = np.flatnonzero(_lower_bound(at, buckets) <= reach)
     cut = np.zeros(at.shape[0], dtype=bool)
-    if rows.size:
-        at = at[rows]
-        near, nearest = tree.query(at, k=min(_NEAREST, tree.n), distance_upper_bound=reach)
-        near, nearest = near.reshape(rows.size, -1), nearest.reshape(rows.size, -1)
-        within = np.isfinite(near)
-        if normals is None:
-            cut[rows] = within.any(axis=1)
-        else:
-            pick = np.where(within, nearest, 0)
-            own = np.asarray(normals, dtype=float)[rows][:, axes]
-            own /= np.maximum(np.linalg.norm(own, axis=1), 1e-300)[:, None]
-            offset = tree.data[pick] - at[:, None, :]
-            along = np.einsum("ikj,ij->ik", offset, own)
-            off_line = np.einsum("ikj,ikj->ik", offset, offset) - along ** 2
-            facing = np.abs(np.einsum("ikj,ij->ik", face_normals[pick], own)) >= _FACING
-            cut[rows] = (within & (off_line <= lateral ** 2) & facing).any(axis=1)
+    if rows.size and normals is None:
+        cut[rows] = np.isfinite(tree.query(at[rows], k=1, distance_upper_bound=reach)[0])
+    elif rows.size:
+        own = np.asarray(normals, dtype=float)[rows][:, axes]
+        own /= np.maximum(np.linalg.norm(own, axis=1), 1e-300)[:, None]
+        cut[rows] = _facing_cut(tree, face_normals, buckets, at[rows], own, reach, lateral)
     return float(np.sum(sizes[cut]) / total)
+
+
+def _lower_bound(at: np.ndarray, buckets: tuple) -> np.ndarray:
+    """A lower bound of the distance from each point ``at`` to the nearest boundary face's centroid. A
+    point outside the buckets' box takes its clipped bucket's bound: its projection onto the box lies
+    in that bucket and is no farther from any centroid (all inside the box)."""
+    lo, side, shape, bound = buckets
+    bucket = np.clip(((at - lo) / side).astype(np.int64), 0, np.array(shape) - 1)
+    return bound[tuple(bucket.T)]
+
+
+def _facing_cut(tree, face_normals, buckets, at, own, reach, lateral) -> np.ndarray:
+    """Whether a boundary face within ``reach`` of each element (``at``, unit normals ``own``) lies within
+    ``lateral`` of its normal line and faces it.
+
+    The line from -reach to +reach is sampled at ``2 m + 1`` points a step ``reach / m <= lateral`` apart
+    (``m`` at most :data:`_MAX_SAMPLES`); a face at distance ``t`` along the line and ``o <= lateral``
+    off it lies within ``radius = hypot(lateral, step / 2)`` of the point nearest ``t``. Only points
+    whose bucket bound allows a face within the radius are searched, first for the :data:`_FIRST`
+    nearest faces, then (where that many lie within the radius) for all of them; the candidates are
+    then tested exactly. Exact: no face that counts is missed.
+    """
+    m = max(1, min(_MAX_SAMPLES, int(np.ceil(reach / lateral)) if lateral > 0 else _MAX_SAMPLES))
+    along = np.linspace(-reach, reach, 2 * m + 1)
+    radius = float(np.hypot(lateral, 0.5 * reach / m))
+    cut = np.zeros(at.shape[0], dtype=bool)
+    per = max(1, _CHUNK // along.size)
+    for lo in range(0, at.shape[0], per):
+        p, n = at[lo:lo + per], own[lo:lo + per]
+        points = (p[:, None, :] + along[None, :, None] * n[:, None, :]).reshape(-1, at.shape[1])
+        kept = np.flatnonzero(_lower_bound(points, buckets) <= radius)
+        element, face = _faces_within(tree, points[kept], radius)
+        element = kept[element] // along.size
+        offset = tree.data[face] - p[element]
+        on_line = np.einsum("ij,ij->i", offset, n[element])
+        square = np.einsum("ij,ij->i", offset, offset)
+        facing = np.abs(np.einsum("ij,ij->i", face_normals[face], n[element])) >= _FACING
+        counts = (square < reach ** 2) & (square - on_line ** 2 <= lateral ** 2) & facing
+        cut[lo + element[counts]] = True
+    return cut
+
+
+def _faces_within(tree, points: np.ndarray, radius: float) -> tuple:
+    """Every (point, face) pair with the face's centroid within ``radius`` of the point, as two arrays:
+    the :data:`_FIRST` nearest from one bounded search, all of them by a ball search where that many
+    lie within the radius."""
+    if points.shape[0] == 0:
+        return np.zeros(0, dtype=np.int64), np.zeros(0, dtype=np.int64)
+    k = min(_FIRST, tree.n)
+    far, face = tree.query(points, k=k, distance_upper_bound=radius)
+    far, face = far.reshape(points.shape[0], -1), face.reshape(points.shape[0], -1)
+    within = np.isfinite(far)
+    full = within.all(axis=1) if k < tree.n else np.zeros(points.shape[0], dtype=bool)
+    within[full] = False
+    point, column = np.nonzero(within)
+    pairs_point, pairs_face = [point], [face[point, column]]
+    if full.any():
+        rows = np.flatnonzero(full)
+        found = tree.query_ball_point(points[rows], radius)
+        sizes = np.fromiter((len(f) for f in found), dtype=np.int64, count=rows.size)
+        pairs_point.append(np.repeat(rows, sizes))
+        pairs_face.append(np.concatenate([np.asarray(f, dtype=np.int64) for f in found]))
+    return np.concatenate(pairs_point), np.concatenate(pairs_face)
