@@ -346,7 +346,7 @@ def equilibrium(model_file, temperature, temperatures, count, as_json, out, over
             if len(record["two_phase_regions"]) > 1:  # the pairs above are the widest and the outermost
                 shown = ", ".join(f"{a:.4g} to {b:.4g}" for a, b in record["two_phase_regions"])
                 click.echo(f"  note: {len(record['two_phase_regions'])} two-phase regions: {shown} (the binodal "
-                           "above is the widest; the others to the composition grid)")
+                           "above is the widest; a run's steps are measured against the one their mean composition lies in)")
                 shown = ", ".join(f"{a:.4g} to {b:.4g}" for a, b in record["unstable_ranges"])
                 click.echo(f"  note: unstable ranges: {shown} (the spinodal above spans them and the stable gap "
                            "between)")

@@ -45,15 +45,15 @@ def test_states_of_a_model_with_two_regions(composition):
 
 
 def test_all_regions_against_the_hull_and_the_curvature():
-    # every two-phase region (Qhull's lower hull bridges, to the grid spacing of 0.005) and every unstable
+    # every two-phase region (Qhull's lower hull bridges on a grid of spacing 5e-6) and every unstable
     # range (the ends of numpy's concave runs, to the fine grid's spacing)
     from phasegauge.analysis._binodal import all_regions
 
     model, x, bridges, concave = _reference()
     regions, unstable = all_regions(model, T)
     assert len(regions) == len(bridges) == 2
-    for (a, b), (ra, rb) in zip(regions, bridges):
-        assert a == pytest.approx(ra, abs=5e-3) and b == pytest.approx(rb, abs=5e-3)
+    for (a, b), (ra, rb) in zip(regions, bridges):  # each refined by isoactivity: to the fine grid's spacing
+        assert a == pytest.approx(ra, abs=1e-5) and b == pytest.approx(rb, abs=1e-5)
     edges = np.flatnonzero(np.diff(concave.astype(int)))
     runs = [(x[edges[i] + 1], x[edges[i + 1]]) for i in range(0, edges.size, 2)]
     assert len(unstable) == len(runs) == 2
@@ -69,8 +69,30 @@ def test_the_equilibrium_command_names_both_regions():
     from phasegauge.cli import main
 
     text = CliRunner().invoke(main, ["equilibrium", MODEL, "--temperature", "100"]).output
-    assert "note: 2 two-phase regions: 0.0003922 to 0.5188, 0.534 to 0.9999" in text
+    assert "note: 2 two-phase regions: 0.0003922 to 0.5188, 0.5345 to 0.9999" in text
     record = json.loads(CliRunner().invoke(main, ["equilibrium", MODEL, "--temperature", "100", "--json"]).output)
     assert len(record["two_phase_regions"]) == 2 and len(record["unstable_ranges"]) == 2
     one = json.loads(CliRunner().invoke(main, ["equilibrium", MODEL, "--temperature", "298.15", "--json"]).output)
     assert one["two_phase_regions"] == [[one["binodal_lean"], one["binodal_rich"]]]
+
+
+def test_the_phase_diagram_lists_the_second_region(tmp_path):
+    # 90, 100 and 110 K: at 100 K the second region is the one Qhull finds beside the binodal (the test
+    # above); the diagram's record lists it, draws it and says so
+    import json
+
+    from click.testing import CliRunner
+
+    from phasegauge.cli import main
+
+    model, _, bridges, _ = _reference()
+    out = tmp_path / "pd"
+    result = CliRunner().invoke(main, ["equilibrium", MODEL, "--temperatures", "90,110", "--count", "3", "-o", str(out)])
+    assert result.exit_code == 0, result.output
+    record = json.loads((out / "phase_diagram.json").read_text())
+    at_100 = [r for r in record["other_two_phase_regions"] if r["temperature"] == 100.0]
+    assert len(at_100) == 1
+    assert at_100[0]["lean"] == pytest.approx(bridges[1][0], abs=1e-5)
+    assert at_100[0]["rich"] == pytest.approx(bridges[1][1], abs=1e-5)
+    assert any("second two-phase region" in f for f in record["findings"])
+    assert "second two-phase region" in result.output

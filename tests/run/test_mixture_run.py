@@ -283,6 +283,42 @@ def test_sharp_plateaus_under_half_the_binodal_gap_are_separated(tmp_path):
     assert "mixed_inside_spinodal" not in kinds and "binodal_gap" in kinds
 
 
+def test_drops_in_a_mixture_whose_mean_composition_is_stable_are_warned_of(tmp_path):
+    # a rich drop (radius 0.13, tanh) at the analytic binodal 0.9293 in a matrix at 0.01: the mean
+    # composition, 0.01 + 0.9193 pi 0.13^2 = 0.0589, lies below the binodal's lean end 0.0707, so the
+    # model predicts one stable phase for this mixture (the drop should dissolve): a warning naming it
+    mesh = grid_mesh((300, 300), kind="quad")
+    r = np.linalg.norm(mesh.cell_centroids[:, :2] - 0.5, axis=1)
+    comp = 0.01 + (RICH - 0.01) * 0.5 * (1 + np.tanh((0.13 - r) / (2 * 0.003)))
+    path = write_listing(tmp_path, [(0.0, "d_0.vtu", mesh, {"x": comp})])
+    res = measure(path, "x", model=RegularSolutionModel(A_a=3.0), temperature=300.0, analyses=("interface",))
+    step = res.steps.iloc[0]
+    assert step["mean_composition"] == pytest.approx(0.01 + (RICH - 0.01) * np.pi * 0.13 ** 2, abs=5e-4)
+    assert step["separated"] and step["mixture_state"] == "stable"
+    finding = next(f for f in res.findings if f.kind == "separated_one_phase")
+    assert finding.severity == "warning" and "for the mean composition 0.05889" in finding.text
+
+
+def test_a_run_in_the_second_two_phase_region_is_measured_against_it(tmp_path):
+    # the shipped solvent pair (NRTL) at 100 K has two two-phase regions, about (0.0004, 0.519) and
+    # (0.5345, 0.9999) by scipy's convex hull (tests/analysis/test_mixture_state_two_regions.py); a slab
+    # with its bulks on the second region's ends is on the binodal (before: measured against the first,
+    # widest region, 0.48 off)
+    from phasegauge.analysis._binodal import all_regions
+    from phasegauge.io._model_file import read_mixture_model
+
+    root = os.path.join(os.path.dirname(__file__), "..", "..", "sample_fields")
+    model = read_mixture_model(os.path.join(root, "solvent_pair.toml"))
+    (_, _), (lean, rich) = all_regions(model, 100.0)[0]
+    path = _slab_series(tmp_path, [(lean, rich)], n=400)
+    res = measure(path, "x", model=model, temperature=100.0, analyses=("interface",), level=0.5 * (lean + rich))
+    step = res.steps.iloc[0]
+    assert (step["binodal_lean"], step["binodal_rich"]) == (lean, rich)
+    assert step["interface_width"] == pytest.approx(2 * np.log(19.0) * EPS, rel=0.03)  # between the plateaus
+    assert step["separated"] and step["equilibrium_gap"] < 2e-3
+    assert "binodal_reached" in [f.kind for f in res.findings]
+
+
 def test_a_double_well_off_the_mapped_scale_is_refused(tmp_path):
     # a double well written on an order parameter's scale (-1, 1): the measured compositions are on the
     # mapped scale 0..1, so its bulk values could never be reached; refused in one line with the fix

@@ -17,6 +17,7 @@ Fluid Phase Equilibria 9, 1-19 (tangent-plane test).
 
 from __future__ import annotations
 
+import math
 from dataclasses import dataclass
 
 import numpy as np
@@ -25,7 +26,7 @@ from ..errors import AnalysisError, OptionError
 from ..model.mixture_models import DoubleWellModel
 
 __all__ = ["BinaryEquilibrium", "CriticalPoint", "spinodal", "binodal", "critical_points", "phase_diagram",
-           "equilibrium_at", "all_regions", "other_regions"]
+           "equilibrium_at", "all_regions", "other_regions", "region_of"]
 
 _STEP = 1e-20            # complex step
 _U_LIMIT = 36.0          # logit bound: x down to about 2e-16
@@ -320,9 +321,37 @@ MIN_REGION = 1e-6
 def other_regions(model, temperature: float, lean: float, rich: float) -> list:
     """The two-phase regions beside the widest one (``lean``, ``rich``: the refined binodal), as
     ``(lean, rich)`` pairs: the bridges of the lower convex hull of Delta g_mix / RT on the composition
-    grid that lie clear of it and are wider than :data:`MIN_REGION`."""
-    return [(float(a), float(b)) for a, b, _, _ in _hull_bridges(model, float(temperature))
-            if (b <= lean or a >= rich) and b - a > MIN_REGION]
+    grid that lie clear of it and are wider than :data:`MIN_REGION`, each refined by isoactivity from
+    its bridge (as the widest is) where that converges to a common tangent, else the bridge's ends."""
+    t = float(temperature)
+    found = []
+    for a, b, s_a, s_b in _hull_bridges(model, t):
+        if not ((b <= lean or a >= rich) and b - a > MIN_REGION):
+            continue
+        one = np.array([t])
+        xa, xb, done = _newton(model, one, _logit(np.array([a])), _logit(np.array([b])),
+                               _logit(np.array([s_a])), _logit(np.array([s_b])))
+        if done[0] and xb[0] - xa[0] > MIN_REGION and _tangent_gap(model, one, xa, xb)[0] > -1e-9:
+            a, b = xa[0], xb[0]
+        found.append((float(a), float(b)))
+    return found
+
+
+def region_of(model, temperature: float, composition: float, equilibrium=None) -> tuple:
+    """The two-phase region ``(lean, rich)`` a mixture of this mean composition separates into at this
+    temperature: the region that holds it, else the nearest one (a mixture outside every region is one
+    stable phase; its nearest region is what its phases would be measured against). The binodal
+    (the widest region) when the model has one region; ``(nan, nan)`` when it has none."""
+    eq = equilibrium_at(model, float(temperature)) if equilibrium is None else equilibrium
+    if not eq.separates:
+        return math.nan, math.nan
+    regions = [(eq.binodal_lean, eq.binodal_rich)]
+    if not isinstance(model, DoubleWellModel):
+        regions += other_regions(model, float(temperature), eq.binodal_lean, eq.binodal_rich)
+    x = float(composition)
+    if len(regions) == 1 or not np.isfinite(x):
+        return regions[0]
+    return min(regions, key=lambda r: max(r[0] - x, x - r[1], 0.0))
 
 
 def all_regions(model, temperature, equilibrium=None) -> tuple:
@@ -330,8 +359,8 @@ def all_regions(model, temperature, equilibrium=None) -> tuple:
     lists of ``(lean, rich)`` pairs in order of composition.
 
     The widest two-phase region is the refined binodal of ``equilibrium`` (:func:`equilibrium_at`);
-    the others are the bridges of the lower convex hull of Delta g_mix / RT on the composition grid
-    (to a grid spacing, about 0.004 in the middle and finer towards the ends). The unstable ranges are
+    the others are the bridges of the lower convex hull of Delta g_mix / RT on the composition grid,
+    refined by isoactivity (:func:`other_regions`). The unstable ranges are
     where the free energy is concave, each end refined to a root of the curvature. A model with one
     region has one of each (or none: one stable phase).
     """

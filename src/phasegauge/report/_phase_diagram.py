@@ -15,7 +15,8 @@ __all__ = ["write_phase_diagram", "phase_diagram_figure"]
 
 
 def phase_diagram_figure(columns: dict, record: dict):
-    """Binodal (solid) and spinodal (dashed) against temperature, critical points marked."""
+    """Binodal (solid) and spinodal (dashed) against temperature, critical points marked, the ends of any
+    other two-phase region as dots."""
     figure = new_figure(5.6, 4.2)
     ax = figure.add_subplot()
     t = columns["temperature"]
@@ -23,6 +24,10 @@ def phase_diagram_figure(columns: dict, record: dict):
         for side in ("lean", "rich"):
             ax.plot(columns[f"{name}_{side}"], t, style, color="C0" if name == "binodal" else "C1",
                     label=name if side == "lean" else None)
+    others = record.get("other_two_phase_regions", [])
+    if others:  # a second region beside the widest at some temperatures: its ends as dots
+        ax.plot([r["lean"] for r in others] + [r["rich"] for r in others], [r["temperature"] for r in others] * 2,
+                ".", color="C0", markersize=3, label="binodal (another region)")
     for point in record.get("critical_points", []):
         ax.plot([point["composition"]], [point["temperature"]], "o", color="C3",
                 label=f"{point['kind']} {point['temperature']:.1f} K")

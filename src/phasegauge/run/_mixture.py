@@ -142,6 +142,7 @@ def mixture_step(step, mesh, ind, contour, metrics: dict, options, droplets=None
     searching only where those leave it open.
     """
     from ..analysis import thermo
+    from ..analysis._binodal import region_of
     from ..analysis._sums import dot
 
     model = options.model
@@ -157,8 +158,9 @@ def mixture_step(step, mesh, ind, contour, metrics: dict, options, droplets=None
     # 50 ms of CPU a step on 1M cells, and its last bit depends on the number of threads)
     out = {"temperature": t, "mean_composition": dot(weights, x_finite) / float(weights.sum())}
     eq = thermo.equilibrium_at(model, t) if np.isfinite(t) else None
-    out["binodal_lean"] = eq.binodal_lean if eq is not None else math.nan
-    out["binodal_rich"] = eq.binodal_rich if eq is not None else math.nan
+    # the region the mean composition separates into (a model may have two at one temperature)
+    out["binodal_lean"], out["binodal_rich"] = (region_of(model, t, out["mean_composition"], equilibrium=eq)
+                                                if eq is not None else (math.nan, math.nan))
     out["mixture_state"] = (str(thermo.mixture_state(model, t, out["mean_composition"], equilibrium=eq))
                             if eq is not None else "")
     width = metrics.get("interface_width", math.nan)
@@ -249,7 +251,8 @@ def mixture_findings(steps, options) -> list:
     """The findings of the mixture columns, as :class:`~phasegauge.run.assemble.Finding` records.
 
     - separated where the model predicts one stable phase (a warning while the last step is
-      still separated, a note when it mixed later);
+      still separated, a note when it is not so at the last step); one stable phase at the temperature, or
+      for the mean composition (outside every two-phase region);
     - still mixed inside the spinodal (likewise);
     - bulk compositions off the binodal by more than ``equilibrium_tolerance`` at the last
       separated step (a note instead when the gap lies within the Gibbs-Thomson shift expected
@@ -263,14 +266,21 @@ def mixture_findings(steps, options) -> list:
     tol = float(options.equilibrium_tolerance)
     separated = steps["separated"].to_numpy(dtype=bool)
     one_phase = ~np.isfinite(steps["binodal_lean"].to_numpy(dtype=float))
+    state = steps["mixture_state"].astype(str).to_numpy()
     last = len(steps) - 1
-    wrong = separated & one_phase
+    # one stable phase at the temperature, or for the mean composition (outside every two-phase region:
+    # drops that should dissolve)
+    wrong = separated & (one_phase | (state == "stable"))
     if wrong.any():
         times = _times(steps, wrong)
         still = bool(wrong[last])
-        text = (f"separated although the model predicts one stable phase at {_temperature_text(steps, wrong)} "
-                f"({int(wrong.sum())} step(s), t = {times[0]:g} to {times[-1]:g})"
-                + ("" if still else "; mixed later"))
+        first = int(np.flatnonzero(wrong)[0])
+        where = ("" if one_phase[first] else
+                 f" for the mean composition {steps['mean_composition'].iat[first]:.4g} (outside the two-phase "
+                 f"region {steps['binodal_lean'].iat[first]:.4g} to {steps['binodal_rich'].iat[first]:.4g})")
+        text = (f"separated although the model predicts one stable phase{where} at "
+                f"{_temperature_text(steps, wrong)} ({int(wrong.sum())} step(s), t = {times[0]:g} to {times[-1]:g})"
+                + ("" if still else "; not so at the last step"))
         found.append(Finding("separated_one_phase", "warning" if still else "note", text,
                              {"steps": int(wrong.sum()), "first_time": times[0], "last_time": times[-1],
                               "at_last_step": still}))
@@ -286,7 +296,6 @@ def mixture_findings(steps, options) -> list:
             if "c_max" in steps and "c_min" in steps else np.full(len(steps), np.nan))
     gap = steps["binodal_rich"].to_numpy(dtype=float) - steps["binodal_lean"].to_numpy(dtype=float)
     mixed_seen = (np.isfinite(lean) & np.isfinite(rich)) | ~(size > 0) | (span < 0.5 * gap)
-    state = steps["mixture_state"].astype(str).to_numpy()
     unknown = (state == "unstable") & ~separated & ~mixed_seen
     if unknown.any():
         times = _times(steps, unknown)

@@ -102,10 +102,31 @@ def phase_diagram_run(model, temperatures, *, out, count=200, overwrite=False, p
         findings.append(f"two phases at every temperature from {lo:g} to {hi:g} K (no critical point in the range)")
     if not table["confirmed"].all():
         findings.append(f"{int((~table['confirmed']).sum())} binodal pair(s) failed the global stability test")
+    others = _other_regions(model, table)
+    if others:
+        at = sorted({row["temperature"] for row in others})
+        findings.append(f"a second two-phase region beside the binodal's at {len(at)} temperature(s) from "
+                        f"{at[0]:g} to {at[-1]:g} K: the binodal columns are the widest region; the others are "
+                        "drawn as dots and listed in other_two_phase_regions")
     record = _model_record(model, path)
     record.update({"temperatures": [lo, hi], "count": int(count), "critical_points": critical,
-                   "findings": findings})
+                   "findings": findings, "other_two_phase_regions": others})
     columns = {name: np.asarray(table[name]) for name in ("temperature", "binodal_lean", "binodal_rich",
                                                           "spinodal_lean", "spinodal_rich")}
     write_phase_diagram(out, columns, record, overwrite=overwrite)
     return record
+
+
+def _other_regions(model, table: dict) -> list:
+    """The two-phase regions beside the binodal's (the widest) at each temperature of the diagram, as
+    ``{"temperature", "lean", "rich"}`` records (none for a double well)."""
+    from ..analysis._binodal import other_regions
+    from ..model.mixture_models import DoubleWellModel
+
+    if isinstance(model, DoubleWellModel):
+        return []
+    found = []
+    for t, lean, rich in zip(table["temperature"], table["binodal_lean"], table["binodal_rich"]):
+        if np.isfinite(lean):
+            found += [{"temperature": float(t), "lean": a, "rich": b} for a, b in other_regions(model, t, lean, rich)]
+    return found
