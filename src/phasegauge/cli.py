@@ -199,6 +199,9 @@ def inspect(path, as_json, scan, sort_by_time):
 @click.option("--strict", is_flag=True, help="Stop at a bad step instead of skipping it.")
 @click.option("--keep-3d", is_flag=True,
               help="Measure a mesh one cell thick as 3D (by default: per unit depth, as 2D).")
+@click.option("--level-set", "level_set", is_flag=True,
+              help="The field is a level set (a signed distance, 0 on the interface; --phase picks the side "
+                   "measured): volumes from the cut cells, its slope in place of widths.")
 @click.option("--contours/--no-contours", default=True, show_default=True,
               help="Write the interface geometry of every step (contours/).")
 @click.option("--snapshots", type=int, default=4, show_default=True, help="Steps whose interface the report draws.")
@@ -227,7 +230,7 @@ def measure(path, field, value_range, phase, level, velocity, field_location, so
             adjacency, periodic,
             ignore_remerge_within, densities, diffusivity, box, section_axis, section_count, section_positions,
             mixing_target, segregation_scale, drift_tolerance, workers, threads, scheduler, resume, overwrite, strict,
-            keep_3d,
+            keep_3d, level_set,
             contours, snapshots, plot_format, keep_cache, quiet, probe_file, line_file, measured_file,
             free_energy=None, coarsening=False, **mixture):
     """Measure interface, droplets, mixing and conservation on every step of PATH.
@@ -247,7 +250,7 @@ def measure(path, field, value_range, phase, level, velocity, field_location, so
         section_positions=_floats(section_positions, "--section-positions"), mixing_target=mixing_target,
         segregation_scale=segregation_scale,
         drift_tolerance=drift_tolerance, strict=strict, field_location=field_location or "auto",
-        sort_by_time=sort_by_time, keep_3d=keep_3d, steps=steps, time_from=time_from, time_to=time_to, every=every,
+        sort_by_time=sort_by_time, keep_3d=keep_3d, level_set=level_set, steps=steps, time_from=time_from, time_to=time_to, every=every,
         free_energy=free_energy, coarsening=coarsening,
         **_point_options(probe_file, line_file, measured_file), **_mixture_values(**mixture))
     result = run_measure(path, options=options, out=out, workers=workers, threads=threads, scheduler=scheduler,
@@ -441,6 +444,9 @@ def samples(directory, only, overwrite, list_names):
                    "(default: the cell copy).")
 @click.option("--sort-by-time", is_flag=True,
               help="Order each run's steps by the times stored in their files, not by their names.")
+@click.option("--level-set-a", "level_set_a", is_flag=True, help="The first run's field is a level set (as measure's "
+              "--level-set).")
+@click.option("--level-set-b", "level_set_b", is_flag=True, help="The second run's field is a level set.")
 @click.option("--out", "-o", "out", required=True, help="Output folder.")
 @click.option("--overwrite", is_flag=True, help="Replace an existing output folder.")
 @click.option("--workers", "-j", type=int, default=1, show_default=True, help="Local worker processes.")
@@ -450,15 +456,17 @@ def samples(directory, only, overwrite, list_names):
 @click.option("--quiet", "-q", is_flag=True, help="No progress display.")
 def compare(path_a, path_b, field_a, field_b, range_a, range_b, phase_a, phase_b, velocity_a, velocity_b,
             label_a, label_b, level, time_tolerance, spacing, rising_bubble, reference_table, field_location,
-            sort_by_time, out, overwrite, workers, threads, quiet):
+            sort_by_time, level_set_a, level_set_b, out, overwrite, workers, threads, quiet):
     """Compare two runs of the same case (for example diffuse versus sharp interface)."""
     from .run.compare import RunSpec, compare_runs
     from .model.indicator import parse_range
     from .report._files import output_transaction
 
     where = field_location or "auto"
-    first = RunSpec(path_a, field_a, parse_range(range_a), phase_a, velocity_a, label_a, where, sort_by_time)
-    second = RunSpec(path_b, field_b, parse_range(range_b), phase_b, velocity_b, label_b, where, sort_by_time)
+    first = RunSpec(path_a, field_a, parse_range(range_a), phase_a, velocity_a, label_a, where, sort_by_time,
+                    level_set_a)
+    second = RunSpec(path_b, field_b, parse_range(range_b), phase_b, velocity_b, label_b, where, sort_by_time,
+                     level_set_b)
     with output_transaction(out):
         result = compare_runs(first, second, out=out, overwrite=overwrite, level=level,
                               time_tolerance=time_tolerance, spacing=spacing, reference_table=reference_table,

@@ -94,7 +94,7 @@ OLD_KEYS = MappingProxyType({("mixing", "target"): "mixing_target",
                              ("miscibility", "tolerance"): "equilibrium_tolerance"})
 
 _INPUT = {"path": str, "field": str, "range": list, "phase": str, "velocity": str, "label": str,
-          "field_location": str, "sort_by_time": bool}
+          "field_location": str, "sort_by_time": bool, "level_set": bool}
 
 RECIPE_SCHEMA = {
     "input": {**_INPUT, "keep_3d": bool, "steps": str, "time_from": (int, float), "time_to": (int, float),
@@ -386,7 +386,8 @@ def measure_arguments(recipe: dict) -> dict:
         mixing_target=mix.get("mixing_target", 0.9), segregation_scale=mix.get("segregation_scale", False),
         drift_tolerance=cons.get("drift_tolerance", 1e-3),
         strict=run.get("strict", False), field_location=inp.get("field_location", "auto"),
-        sort_by_time=inp.get("sort_by_time", False), keep_3d=inp.get("keep_3d", False), steps=inp.get("steps"),
+        sort_by_time=inp.get("sort_by_time", False), keep_3d=inp.get("keep_3d", False),
+        level_set=inp.get("level_set", False), steps=inp.get("steps"),
         time_from=inp.get("time_from"), time_to=inp.get("time_to"), every=inp.get("every", 1),
         **recipe.get("phase_field", {}), **_point_options(recipe.get("validation", {})),
         **recipe.get("miscibility", {}))

@@ -69,7 +69,9 @@ EXTRA = {
     "equilibrium_tolerance": (["--equilibrium-tolerance", "0.02"], "miscibility", "0.02", 0.02),
     "capillary_length": (["--capillary-length", "0.001"], "miscibility", "0.001", 0.001),
 }
-VALUES = {**VALUES, **EXTRA}
+#: options that exclude others above (a level set takes no range): their own run below
+APART = {"level_set": (["--level-set"], "input", "true", True)}
+VALUES = {**VALUES, **EXTRA, **APART}
 
 
 def _readme_table():
@@ -142,7 +144,7 @@ def test_readme_table_names_every_option():
 
 def test_every_name_gives_one_manifest_entry(tmp_path):
     listing = _series(str(tmp_path))
-    names = [r[0].strip("`") for r in _readme_table() if r[0].strip("`") not in EXTRA]
+    names = [r[0].strip("`") for r in _readme_table() if r[0].strip("`") not in {**EXTRA, **APART}]
     args = [a for name in names for a in VALUES[name][0]]
     _cli(["measure", listing, "-o", str(tmp_path / "cli"), *args])
     recipe = _recipe(str(tmp_path / "r.toml"), listing, str(tmp_path / "recipe"),
@@ -339,3 +341,20 @@ def test_2d_box_gives_one_manifest_entry(tmp_path):
     boxes = [_options(tmp_path / k)["box"] for k in ("cli", "recipe", "api", "api_z")]
     assert boxes == [[[0, 1], [0, 0.5]]] * 4
     assert MeasureOptions(field="c", box=((0, 1), (0, 0.5), (-1, 1))).box == ((0, 1), (0, 0.5), (-1, 1))
+
+
+def test_the_level_set_name_gives_one_manifest_entry(tmp_path):
+    """As above, for ``level_set`` (which refuses a range, so it runs on its own)."""
+    mesh = grid_mesh((30, 30), kind="quad")
+    phi = np.hypot(mesh.coordinates[:, 0] - 0.5, mesh.coordinates[:, 1] - 0.5) - 0.2
+    for k in range(2):
+        to_meshio(mesh, point_data={"phi": phi}).write(tmp_path / f"l_{k}.vtu")
+    listing = str(tmp_path / "run.steps")
+    (tmp_path / "run.steps").write_text("0,l_0.vtu\n1,l_1.vtu\n")
+    _cli(["measure", listing, "-o", str(tmp_path / "cli"), "--field", "phi", *APART["level_set"][0]])
+    recipe = _recipe(str(tmp_path / "r.toml"), listing, str(tmp_path / "recipe"),
+                     [("input", "field", '"phi"'), (APART["level_set"][1], "level_set", APART["level_set"][2])])
+    run_recipe(recipe)
+    measure(listing, "phi", out=tmp_path / "api", level_set=APART["level_set"][3])
+    cli, rec, api = (_options(tmp_path / k) for k in ("cli", "recipe", "api"))
+    assert cli["level_set"] is rec["level_set"] is api["level_set"] is True

@@ -70,6 +70,9 @@ class Indicator:
     copies : tuple of str
         Where the step holds a field of that name (``('cell', 'point')`` when it is
         written twice); ``location`` is the copy read.
+    level_set : ndarray of shape (n_points,) or None
+        The field's values at the points when it is a level set (:mod:`.level_set`:
+        ``cell`` and ``point`` are then built from it); None otherwise.
     """
 
     cell: np.ndarray
@@ -80,6 +83,7 @@ class Indicator:
     range: tuple = (0.0, 1.0)
     phase: str = "upper"
     copies: tuple = ()
+    level_set: np.ndarray | None = None
 
     @property
     def value_range(self) -> tuple:
@@ -262,7 +266,8 @@ def select_field(fields, name: str, *, where: str = "", location: str | None = N
 
 
 def make_indicator(mesh: Mesh, fields, name: str, *, range=None, phase: str = "upper",
-                   where: str = "", warn: bool = True, field_location: str | None = None, **old) -> Indicator:
+                   where: str = "", warn: bool = True, field_location: str | None = None,
+                   level_set: bool = False, **old) -> Indicator:
     """Build the indicator of one step.
 
     Parameters
@@ -284,6 +289,12 @@ def make_indicator(mesh: Mesh, fields, name: str, *, range=None, phase: str = "u
         Which copy to read when the field is written on cells and on points
         under one name: ``'auto'`` (None) reads the cell copy, the solver's own
         values.
+    level_set : bool
+        The field is a level set (a signed distance, zero on the interface): the
+        indicator is its cut-cell fractions on cells and a ramp whose 0.5 contour
+        is its zero contour on points (:func:`.level_set.level_set_indicator`);
+        ``range`` is not used. Data on cells goes to the points first (the
+        least-squares reconstruction, exact for a linear field).
 
     Returns
     -------
@@ -306,6 +317,13 @@ def make_indicator(mesh: Mesh, fields, name: str, *, range=None, phase: str = "u
     if warn and nonfinite:
         warnings.warn(NonFiniteWarning(f"field '{name}' has {nonfinite} NaN or Inf values; they are left "
                                        "out of every integral", where=where), stacklevel=2)
+    if level_set:
+        from .level_set import level_set_indicator
+
+        phi = np.where(finite, values, np.nan)
+        phi = phi if location == "point" else mesh.cell_to_point(phi)
+        cell, point = level_set_indicator(mesh, phi, phase)
+        return Indicator(cell, point, location, nonfinite, name, value_range, phase, copies, level_set=phi)
     if warn and nonfinite < values.size:
         check_range(values[finite], value_range, name=name, where=where)
     c = map_to_indicator(values, value_range, phase)

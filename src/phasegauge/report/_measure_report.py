@@ -165,6 +165,7 @@ def _key_figures(result) -> list:
     add("bulk composition, rich phase, last measured", "bulk_composition_rich", last_finite)
     add("gap to the binodal, last separated step", "equilibrium_gap", last_finite)
     add("partition coefficient of the solute, last measured", "partition_coefficient", last_finite)
+    add("level set's distance error near the interface, largest median", "distance_error_median", np.nanmax)
     audit = result.audit or {}
     if audit.get("interface_kind") in ("diffuse", "sharp"):
         cells = audit.get("cells_across")
@@ -188,8 +189,9 @@ def _key_figures(result) -> list:
 def _page(result, series, pngs, execution, version, *, written=(), contours=False) -> Page:
     opts = result.options
     page = Page("phasegauge measure report",
-                f"{series['path']} · {series['steps']} steps · field '{opts.field}' mapped from "
-                f"[{opts.range[0]:g}, {opts.range[1]:g}] ({opts.phase} phase) · "
+                f"{series['path']} · {series['steps']} steps · field '{opts.field}' "
+                + (f"a level set ({opts.phase} side)" if getattr(opts, "level_set", False) else
+                   f"mapped from [{opts.range[0]:g}, {opts.range[1]:g}] ({opts.phase} phase)") + " · "
                 f"phasegauge {version}")
     page.heading("Findings")
     if result.flags:
@@ -197,7 +199,8 @@ def _page(result, series, pngs, execution, version, *, written=(), contours=Fals
     else:
         kind = (result.audit or {}).get("interface_kind")
         resolved = ("sharp interface, resolution judged by droplet sizes" if kind == "sharp" else
-                    "interface and droplets resolved")
+                    "level set near a distance function, resolution judged by droplet sizes" if kind == "level set"
+                    else "interface and droplets resolved")
         page.items(["no flags: interface not widening, phase volume within tolerance, indicator bounded, "
                     + resolved], css="ok")
     page.heading("Key figures")

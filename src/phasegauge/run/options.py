@@ -158,6 +158,11 @@ class MeasureOptions:
         field's own variable, or an activity model (NRTL, regular solution) in the mole fraction
         at ``temperature`` (or ``temperature_field``). Each step then gets the chemical
         potential's spread, the free energy and the interfacial tension (regular grids).
+    level_set : bool
+        The field is a level set (a signed distance, zero on the interface; ``phase``
+        picks its positive or negative side): the phase is where it has that sign, its
+        volume the cut cells' exact share for the field linear on the split, and the
+        widths give way to ``distance_error_*`` (see :mod:`phasegauge.model.level_set`).
     coarsening : bool
         The characteristic length of the pattern per step (``coarsening_length``, first moment
         of the structure factor) and the fitted exponent of L ~ t^n.
@@ -221,6 +226,7 @@ class MeasureOptions:
     field_location: str = "auto"
     sort_by_time: bool = False
     keep_3d: bool = False
+    level_set: bool = False
     free_energy: object = None
     coarsening: bool = False
 
@@ -312,6 +318,9 @@ class MeasureOptions:
 
         for name, value in normalize_mixture(self).items():
             set_(self, name, value)
+        set_(self, "level_set", bool(self.level_set))
+        if self.level_set:
+            _check_level_set(self)
 
     @property
     def value_range(self):
@@ -368,3 +377,18 @@ def wrong_field_option(err) -> bool:
     Such an error at the first step stops the run, skipped steps or not.
     """
     return isinstance(err, FieldNotFoundError) or (isinstance(err, FieldShapeError) and "component" in err.what)
+
+
+def _check_level_set(options) -> None:
+    """Refuse what does not apply to a level-set field, each in one line with the fix."""
+    fix = "leave it out: a level set's interface is where the field is 0 (--phase picks the side measured)"
+    if options.range != (0.0, 1.0):
+        raise OptionError(f"--range {options.range[0]:g},{options.range[1]:g} was given with --level-set", fix=fix)
+    if options.level != 0.5:
+        raise OptionError(f"--level {options.level:g} was given with --level-set", fix=fix)
+    for name, given in (("probes, lines or measured positions", options.probes or options.lines or options.measured),
+                        ("a free-energy model", options.free_energy is not None),
+                        ("a mixture model", options.model is not None)):
+        if given:
+            raise OptionError(f"{name} given with --level-set: they read the field as a phase indicator or a "
+                              "composition, which a level set is not", fix="measure them in a run without --level-set")

@@ -186,8 +186,8 @@ def analyse_step(step, options, *, contour_dir: str | None = None, reported_mesh
     # the first step of a mesh: its geometry and faces side by side, then the split plan
     prepare_mesh(mesh, threads=threads, split=bool({"interface", "droplets"} & set(options.analyses))
                  or options.section_axis is not None)
-    ind = make_indicator(mesh, step.fields, options.field, range=options.range,
-                         phase=options.phase, where=step.info.where, field_location=options.field_location)
+    ind = make_indicator(mesh, step.fields, options.field, range=options.range, phase=options.phase,
+                         where=step.info.where, field_location=options.field_location, level_set=options.level_set)
     if ind.nonfinite == ind.cell.size or not np.isfinite(ind.cell).any():
         raise InputError(f"field '{options.field}' has no finite values (all NaN or Inf)", where=step.info.where,
                          fix="the solver may have diverged at this step")
@@ -213,6 +213,10 @@ def analyse_step(step, options, *, contour_dir: str | None = None, reported_mesh
     with sections or nullcontext():  # waited for however the analyses end
         contour, measured = _phase_analyses(step, mesh, ind, options, result, m, (u_cell, u_point, u_location),
                                             contour_dir, inner)
+    if options.level_set and "interface" in options.analyses:  # no width of its own: its slope instead
+        from ..analysis._level_set import level_set_metrics
+
+        m.update(level_set_metrics(mesh, ind.level_set))
     if "mixing" in options.analyses:
         m.update(mixing.mixing_metrics(mesh, ind.cell, box=options.box))
         if options.segregation_scale:

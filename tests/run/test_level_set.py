@@ -1,0 +1,138 @@
+"""A level-set field measured as one: volumes from the cut cells, its slope instead of widths.
+
+Outside references: the analytic circle and sphere (area pi R^2, perimeter 2 pi R, volume 4/3 pi R^3);
+a plane phi = x - a, whose cut-cell volume is exact (1 - a) on simplices; and the gradient of
+phi = r^2 - R^2, |grad phi| = 2 r, so | |grad phi| - 1 | = 1 - 2 r near r = R = 0.2 (0.6).
+"""
+
+import json
+import os
+
+import numpy as np
+import pytest
+from click.testing import CliRunner
+
+from phasegauge import measure
+from phasegauge.cli import main
+from phasegauge.errors import OptionError
+from phasegauge.meshgen import grid_mesh, to_meshio
+from phasegauge.model.level_set import level_set_indicator
+
+
+def _circle_area(n, kind="quad", radius=0.2):
+    mesh = grid_mesh((n, n), kind=kind)
+    phi = np.hypot(mesh.coordinates[:, 0] - 0.5, mesh.coordinates[:, 1] - 0.5) - radius
+    cell, point = level_set_indicator(mesh, phi, "lower")
+    return float((cell * mesh.cell_measures).sum())
+
+
+@pytest.mark.parametrize("kind", ["quad", "triangle"])
+def test_the_cut_cells_give_the_circle_to_second_order(kind):
+    errors = [_circle_area(n, kind) / (np.pi * 0.04) - 1 for n in (50, 100, 200)]
+    assert abs(errors[0]) < 2e-3
+    for coarse, fine in zip(errors, errors[1:]):  # halving the cells quarters the error: second order
+        assert 3.6 < coarse / fine < 4.4
+
+
+@pytest.mark.parametrize("kind", ["tetra", "hexahedron", "wedge"])
+def test_a_sphere_and_a_plane_in_3d(kind):
+    mesh = grid_mesh((24, 24, 24), kind=kind)
+    phi = np.linalg.norm(mesh.coordinates - 0.5, axis=1) - 0.3
+    cell, point = level_set_indicator(mesh, phi, "lower")
+    volume = float((cell * mesh.cell_measures).sum())
+    assert volume == pytest.approx(4 / 3 * np.pi * 0.3 ** 3, rel=1e-2)
+    # a plane x = 0.37 (not on a grid line): exact for a linear field on the split, either side
+    plane = mesh.coordinates[:, 0] - 0.37
+    for phase, expected in (("upper", 0.63), ("lower", 0.37)):
+        cell, point = level_set_indicator(mesh, plane, phase)
+        assert float((cell * mesh.cell_measures).sum()) == pytest.approx(expected, abs=1e-12)
+    # the points' ramp has its 0.5 contour where phi = 0, and is bounded
+    assert np.all((point >= 0) & (point <= 1))
+    assert np.allclose(point[np.isclose(plane, 0)], 0.5)
+
+
+def _series(folder, phi_of, radii, *, on_cells=False, n=120):
+    mesh = grid_mesh((n, n), kind="quad")
+    lines = []
+    for k, radius in enumerate(radii):
+        if on_cells:
+            data = {"cell_data": {"phi": phi_of(mesh.cell_centroids, radius)}}
+        else:
+            data = {"point_data": {"phi": phi_of(mesh.coordinates, radius)}}
+        to_meshio(mesh, **data).write(os.path.join(folder, f"ls_{k}.vtu"))
+        lines.append(f"{float(k)},ls_{k}.vtu")
+    listing = os.path.join(folder, "run.steps")
+    with open(listing, "w") as handle:
+        handle.write("\n".join(lines) + "\n")
+    return listing
+
+
+def _distance(x, radius):
+    return np.hypot(x[:, 0] - 0.5, x[:, 1] - 0.5) - radius
+
+
+@pytest.mark.parametrize("on_cells", [False, True])
+def test_a_shrinking_drop_measured_as_a_level_set(tmp_path, on_cells):
+    radii = (0.2, 0.19, 0.18)
+    res = measure(_series(str(tmp_path), _distance, radii, on_cells=on_cells), "phi", level_set=True, phase="lower")
+    steps = res.steps
+    area = np.pi * np.square(radii)
+    np.testing.assert_allclose(steps["phase_volume"], area, rtol=1e-3)  # analytic, second order at 24 cells a radius
+    np.testing.assert_allclose(steps["interface_size"], 2 * np.pi * np.array(radii), rtol=1e-3)
+    assert (steps["droplet_count"] == 1).all()
+    assert steps["phase_volume_drift"].iat[-1] == pytest.approx(area[-1] / area[0] - 1, abs=2e-3)
+    for column in ("interface_width", "width_second_moment", "interface_variance", "interface_cells_across"):
+        assert steps[column].isna().all(), column
+    assert (steps["distance_error_median"] < 1e-2).all()  # a distance function: |grad phi| = 1
+    assert res.audit["interface_kind"] == "level set"
+    kinds = [f.kind for f in res.findings]
+    assert "distance_error" not in kinds and "interface_widening" not in kinds and "indicator_overshoot" not in kinds
+
+
+def test_a_level_set_that_is_no_distance_function_is_warned_of(tmp_path):
+    # phi = r^2 - R^2: the same zero contour (and volume), but |grad phi| = 2 r = 0.4 there
+    def squared(x, radius):
+        return (x[:, 0] - 0.5) ** 2 + (x[:, 1] - 0.5) ** 2 - radius ** 2
+
+    res = measure(_series(str(tmp_path), squared, (0.2, 0.2)), "phi", level_set=True, phase="lower")
+    assert res.steps["phase_volume"].iat[0] == pytest.approx(np.pi * 0.04, rel=1e-3)
+    assert res.steps["distance_error_median"].iat[0] == pytest.approx(0.6, abs=0.01)
+    finding = next(f for f in res.findings if f.kind == "distance_error")
+    assert finding.severity == "warning" and "median up to 0.599" in finding.text
+
+
+def test_what_a_level_set_cannot_take_is_refused(tmp_path):
+    path = _series(str(tmp_path), _distance, (0.2,))
+    with pytest.raises(OptionError, match="--range -1,1 was given with --level-set"):
+        measure(path, "phi", level_set=True, range=(-1, 1))
+    with pytest.raises(OptionError, match="--level 0.3 was given with --level-set"):
+        measure(path, "phi", level_set=True, level=0.3)
+    result = CliRunner().invoke(main, ["measure", path, "--field", "phi", "--level-set", "--range", "0,2",
+                                       "-o", str(tmp_path / "out")])
+    assert result.exit_code == 2 and "--range 0,2 was given with --level-set" in result.output
+
+
+def test_the_command_line_recipe_and_compare_take_it(tmp_path):
+    path = _series(str(tmp_path), _distance, (0.2, 0.2))
+    out = tmp_path / "m"
+    result = CliRunner().invoke(main, ["measure", path, "--field", "phi", "--level-set", "--phase", "lower",
+                                       "-o", str(out), "-q"])
+    assert result.exit_code == 0, result.output
+    audit = json.loads((out / "diffusion_audit.json").read_text())
+    assert audit["interface_kind"] == "level set"
+    recipe = tmp_path / "r.toml"
+    recipe.write_text(f'[input]\npath = "{path}"\nfield = "phi"\nlevel_set = true\nphase = "lower"\n'
+                      f'[output]\nfolder = "{tmp_path / "r"}"\n')
+    result = CliRunner().invoke(main, ["run", str(recipe), "-q"])
+    assert result.exit_code == 0, result.output
+    # the level set against a volume-of-fluid copy of itself (its own cut-cell fractions on cells)
+    mesh = grid_mesh((120, 120), kind="quad")
+    cell, _ = level_set_indicator(mesh, _distance(mesh.coordinates, 0.2), "lower")
+    os.mkdir(tmp_path / "vof")
+    for k in range(2):
+        to_meshio(mesh, cell_data={"alpha": cell}).write(str(tmp_path / "vof" / f"a_{k}.vtu"))
+    (tmp_path / "vof" / "run.steps").write_text("0,a_0.vtu\n1,a_1.vtu\n")
+    result = CliRunner().invoke(main, ["compare", path, str(tmp_path / "vof" / "run.steps"), "--field-a", "phi",
+                                       "--field-b", "alpha", "--level-set-a", "--phase-a", "lower",
+                                       "-o", str(tmp_path / "c"), "-q"])
+    assert result.exit_code == 0, result.output
