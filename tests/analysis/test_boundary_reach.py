@@ -135,3 +135,17 @@ def test_no_near_boundary_finding_for_a_sharp_interface():
     steps = pd.DataFrame({"time": [0.0, 1.0], "interface_near_boundary_fraction": [0.0, 2 * NEAR_BOUNDARY_SHARE]})
     assert boundary_reach_finding(steps, "sharp") is None
     assert boundary_reach_finding(steps, "diffuse").kind == "interface_near_boundary"
+
+
+def test_a_reach_beyond_64_cells_is_cut_to_64():
+    # a slab across a duct 6 x 6 x 200 cells, its end walls 100 cells away along the normal: a reach of
+    # 1e9 (a profile smeared over the domain) is cut to 64 cells, where no wall ahead is found, as with a
+    # reach of 64 cells; 40 cells from the end wall the wall is found either way (geometry)
+    mesh = grid_mesh((200, 6, 6), bounds=[(0.0, 200.0), (0.0, 6.0), (0.0, 6.0)])
+    y, z = np.meshgrid(np.arange(6) + 0.5, np.arange(6) + 0.5)
+    for x, expected in ((100.0, 0.0), (160.0, 1.0)):
+        centroids = np.c_[np.full(36, x), y.ravel(), z.ravel()]
+        normals = np.tile([1.0, 0.0, 0.0], (36, 1))
+        sizes = np.ones(36)
+        huge = boundary_share(mesh, centroids, sizes, 1e9, normals=normals, lateral=1.0)
+        assert huge == boundary_share(mesh, centroids, sizes, 64.0, normals=normals, lateral=1.0) == expected

@@ -75,6 +75,26 @@ def test_plateaus_at_three_and_seven_tenths_are_the_bulks():
     assert bulk_plateaus(small, 0.35)[1] == 1.0
 
 
+def test_plateaus_at_three_and_seven_tenths_on_a_mesh_graded_towards_the_interface(tmp_path):
+    # the same slab profile (eps 4) on rows of cells whose width grows as |u|^9 away from the interface:
+    # most points lie in the profile, but the plateaus hold most of the volume (pyvista's rectilinear
+    # grid); the width is the 5-95 % thickness between them within 3 %
+    import pyvista
+
+    from phasegauge.io import Series
+
+    u = np.linspace(-1, 1, 241)
+    grid = pyvista.RectilinearGrid(60 * np.sign(u) * np.abs(u) ** 9, np.linspace(0, 10, 11), np.array([0.0]))
+    grid.point_data["c"] = 0.3 + 0.4 * 0.5 * (1 + np.tanh(grid.points[:, 0] / 8.0))
+    assert np.count_nonzero(np.abs(grid.point_data["c"] - 0.3) <= 0.01) < 0.2 * np.count_nonzero(grid.point_data["c"] < 0.5)
+    path = str(tmp_path / "graded.vtu")
+    grid.cast_to_unstructured_grid().save(path)
+    step = Series(path).read(0)
+    m = interface_metrics(step.mesh, step.fields.point_data["c"])
+    assert (m["bulk_c_low"], m["bulk_c_high"]) == pytest.approx((0.3, 0.7), abs=2e-3)  # medians of points
+    assert m["interface_width"] / (BAND * 4.0) == pytest.approx(1.0, abs=0.03)
+
+
 # A drop relaxed by the Cahn-Hilliard solver, its order parameter mapped to c with the bulk at
 # 0.01 and 0.99 (as a range given a little wide): the four estimates agree within 3 % of each
 # other and of 4.164 eps_CH.

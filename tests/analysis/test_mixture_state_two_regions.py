@@ -61,6 +61,24 @@ def test_all_regions_against_the_hull_and_the_curvature():
         assert a == pytest.approx(ra, abs=2e-5) and b == pytest.approx(rb, abs=2e-5)
 
 
+@pytest.mark.parametrize("temperature", [65.0, 70.0, 77.0, 100.0])
+def test_the_second_region_is_refined_at_every_temperature(temperature):
+    # the region beside the binodal against Qhull's lower hull on a grid of spacing 2.5e-6 (from 60 to
+    # 99 K Newton's own isoactivity test fails near the pure component although it has the pair)
+    from phasegauge.analysis._binodal import equilibrium_at, other_regions
+
+    model = read_mixture_model(MODEL)
+    x = np.linspace(1e-7, 1 - 1e-7, 400001)
+    hull = ConvexHull(np.c_[x, model.mixing_gibbs(x, temperature)])
+    lower = sorted({int(i) for simplex, eq in zip(hull.simplices, hull.equations) if eq[1] < 0 for i in simplex})
+    bridges = [(x[a], x[b]) for a, b in zip(lower[:-1], lower[1:]) if b - a > 1 and x[b] - x[a] > 1e-3]
+    eq = equilibrium_at(model, temperature)
+    (lean, rich), = other_regions(model, temperature, eq.binodal_lean, eq.binodal_rich)
+    second = [b for b in bridges if b[0] >= eq.binodal_rich - 1e-3]
+    assert len(second) == 1
+    assert lean == pytest.approx(second[0][0], abs=2e-5) and rich == pytest.approx(second[0][1], abs=5e-6)
+
+
 def test_the_equilibrium_command_names_both_regions():
     import json
 

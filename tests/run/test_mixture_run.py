@@ -265,12 +265,12 @@ def test_a_quench_noise_is_mixed_not_separated(tmp_path):
 
 
 def test_sharp_plateaus_under_half_the_binodal_gap_are_separated(tmp_path):
-    # two flat plateaus with a sharp tanh interface between them, at 0.3 / 0.7 and 0.45 / 0.55 (both
-    # inside the analytic spinodal 0.21-0.79, apart by less than half the binodal's gap 0.86): the bulks
-    # are measured within 0.002 of the built values, the run is separated with its bulks off the analytic
-    # binodal (0.0707 / 0.9293) by 0.229 and 0.379, not "still mixed" (before: the plateaus were taken as
-    # 0 and 1, no bulk was measured, and the narrow span read as a quench's noise)
-    truth = [(0.3, 0.7), (0.45, 0.55)]
+    # two flat plateaus with a sharp tanh interface between them, at 0.3 / 0.7 and 0.35 / 0.65 (both
+    # inside the analytic spinodal 0.21-0.79, apart by less than half the binodal's gap 0.86 but more than
+    # a quarter): the bulks are measured within 0.002 of the built values, the run is separated with its
+    # bulks off the analytic binodal (0.0707 / 0.9293) by 0.229 and 0.279, not "still mixed" (before: the
+    # plateaus were taken as 0 and 1, no bulk was measured, and the narrow span read as a quench's noise)
+    truth = [(0.3, 0.7), (0.35, 0.65)]
     res = measure(_slab_series(tmp_path, truth), "x", model=RegularSolutionModel(A_a=3.0), temperature=300.0,
                   analyses=("interface",))
     steps = res.steps
@@ -281,6 +281,24 @@ def test_sharp_plateaus_under_half_the_binodal_gap_are_separated(tmp_path):
     assert steps["separated"].all()
     kinds = [f.kind for f in res.findings]
     assert "mixed_inside_spinodal" not in kinds and "binodal_gap" in kinds
+
+
+@pytest.mark.parametrize("amplitude", [0.05, 0.1])
+def test_an_early_spinodal_pattern_is_not_separated(tmp_path, amplitude):
+    # Gaussian-smoothed noise (scipy's gaussian_filter, 3 cells) of amplitude 0.05 or 0.1 about 0.5,
+    # inside the analytic spinodal: the peaks beyond the measured width are narrow and lie a few
+    # hundredths apart, under a quarter of the binodal's gap (0.86 / 4), so no seed reads separated
+    from scipy.ndimage import gaussian_filter
+
+    mesh = grid_mesh((96, 96), kind="quad")
+    for seed in range(3):
+        noise = gaussian_filter(np.random.default_rng(seed).normal(size=(96, 96)), 3, mode="wrap")
+        comp = 0.5 + amplitude * noise / np.abs(noise).max()
+        folder = tmp_path / f"s{seed}"
+        folder.mkdir()
+        path = write_listing(folder, [(0.0, "p_0.vtu", mesh, {"x": comp.T.ravel()})])
+        res = measure(path, "x", model=RegularSolutionModel(A_a=3.0), temperature=300.0, analyses=("interface",))
+        assert not res.steps["separated"].any(), seed
 
 
 def test_drops_in_a_mixture_whose_mean_composition_is_stable_are_warned_of(tmp_path):
@@ -304,16 +322,20 @@ def test_a_run_in_the_second_two_phase_region_is_measured_against_it(tmp_path):
     # (0.5345, 0.9999) by scipy's convex hull (tests/analysis/test_mixture_state_two_regions.py); a slab
     # with its bulks on the second region's ends is on the binodal (before: measured against the first,
     # widest region, 0.48 off)
-    from phasegauge.analysis._binodal import all_regions
+    from scipy.spatial import ConvexHull
+
     from phasegauge.io._model_file import read_mixture_model
 
     root = os.path.join(os.path.dirname(__file__), "..", "..", "sample_fields")
     model = read_mixture_model(os.path.join(root, "solvent_pair.toml"))
-    (_, _), (lean, rich) = all_regions(model, 100.0)[0]
+    x = np.linspace(1e-6, 1 - 1e-6, 200001)  # the second region by Qhull's lower hull of the free energy
+    hull = ConvexHull(np.c_[x, model.mixing_gibbs(x, 100.0)])
+    lower = sorted({int(i) for simplex, eq in zip(hull.simplices, hull.equations) if eq[1] < 0 for i in simplex})
+    (_, _), (lean, rich) = [(x[a], x[b]) for a, b in zip(lower[:-1], lower[1:]) if b - a > 1 and x[b] - x[a] > 1e-3]
     path = _slab_series(tmp_path, [(lean, rich)], n=400)
     res = measure(path, "x", model=model, temperature=100.0, analyses=("interface",), level=0.5 * (lean + rich))
     step = res.steps.iloc[0]
-    assert (step["binodal_lean"], step["binodal_rich"]) == (lean, rich)
+    assert step["binodal_lean"] == pytest.approx(lean, abs=1e-5) and step["binodal_rich"] == pytest.approx(rich, abs=1e-5)
     assert step["interface_width"] == pytest.approx(2 * np.log(19.0) * EPS, rel=0.03)  # between the plateaus
     assert step["separated"] and step["equilibrium_gap"] < 2e-3
     assert "binodal_reached" in [f.kind for f in res.findings]

@@ -316,6 +316,9 @@ def binodal(model, temperature, *, spinodal_pair=None):
 #: a bridge of the grid's hull narrower than this (in mole fraction) is the round-off of the free energy
 #: near a pure component, not a two-phase region
 MIN_REGION = 1e-6
+#: a refined end of another two-phase region is taken when it lies this near its grid bridge's end (about
+#: the grid's spacing in the middle, 0.004)
+_REFINE_STEP = 0.01
 
 
 def other_regions(model, temperature: float, lean: float, rich: float) -> list:
@@ -331,7 +334,10 @@ def other_regions(model, temperature: float, lean: float, rich: float) -> list:
         one = np.array([t])
         xa, xb, done = _newton(model, one, _logit(np.array([a])), _logit(np.array([b])),
                                _logit(np.array([s_a])), _logit(np.array([s_b])))
-        if done[0] and xb[0] - xa[0] > MIN_REGION and _tangent_gap(model, one, xa, xb)[0] > -1e-9:
+        # Newton's own test (isoactivity to 1e-11) can fail near a pure component where it has found the
+        # pair: taken too when it stays within a grid spacing of the bridge and is a common tangent
+        near = np.isfinite(xa[0]) and np.isfinite(xb[0]) and abs(xa[0] - a) < _REFINE_STEP and abs(xb[0] - b) < _REFINE_STEP
+        if (done[0] or near) and xb[0] - xa[0] > MIN_REGION and _tangent_gap(model, one, xa, xb)[0] > -1e-9:
             a, b = xa[0], xb[0]
         found.append((float(a), float(b)))
     return found

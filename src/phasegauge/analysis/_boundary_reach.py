@@ -102,7 +102,9 @@ def boundary_share(mesh, centroids: np.ndarray, sizes: np.ndarray, reach: float,
     Elements are first passed over where a grid of buckets (made once a mesh) shows no boundary face
     within reach (exact: a lower bound); each other element's normal line is searched at points a
     ``lateral`` apart (:func:`_facing_cut`: every face it could count lies within a radius of one of
-    them), so a facing wall is found however many side-wall faces lie nearer. A seam of hanging faces
+    them), so a facing wall is found however many side-wall faces lie nearer. A reach longer than 64
+    laterals (64 cells: a profile smeared across much of the domain) is cut to that, which keeps the
+    searches' balls about a cell wide. A seam of hanging faces
     where a mesh is refined is taken for a boundary (its faces are owned by one cell).
     """
     from ..model.axes import AXIS_INDEX
@@ -149,6 +151,13 @@ def _facing_cut(tree, face_normals, buckets, at, own, reach, lateral) -> np.ndar
     nearest faces, then (where that many lie within the radius) for all of them; the candidates are
     then tested exactly. Exact: no face that counts is missed.
     """
+    # no face lies farther than the box of the elements and the faces; a reach longer than _MAX_SAMPLES
+    # cells is cut to that (a reach that long is a profile smeared across the domain: see the caller)
+    lo = np.minimum(at.min(axis=0), tree.data.min(axis=0))
+    hi = np.maximum(at.max(axis=0), tree.data.max(axis=0))
+    reach = min(reach, float(np.linalg.norm(hi - lo)) * (1 + 1e-9))
+    if lateral > 0:
+        reach = min(reach, _MAX_SAMPLES * lateral)
     m = max(1, min(_MAX_SAMPLES, int(np.ceil(reach / lateral)) if lateral > 0 else _MAX_SAMPLES))
     along = np.linspace(-reach, reach, 2 * m + 1)
     radius = float(np.hypot(lateral, 0.5 * reach / m))

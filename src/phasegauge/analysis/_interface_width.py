@@ -29,7 +29,8 @@ from ._contour import _check_extremes, _check_level, find_interface
 from ._profile_fits import PROFILE_COLUMNS, WIDTH_PER_EPS, _profile_table
 from ._hex_integrals import _HexBand, coned_hexahedra
 from ._signed_distance import MeasuredDistances, _ContourGeometry, _whole_cell_pieces
-from ._width_integrals import _TAIL, _GridBand, _SplitBand, _grid_tetrahedra
+from ._bulk_plateaus import bulk_plateaus
+from ._width_integrals import _GridBand, _SplitBand, _grid_tetrahedra
 
 __all__ = ["interface_metrics", "interface_profile_table", "prepare_widths", "PreparedWidths", "METRIC_KEYS",
            "PROFILE_COLUMNS", "WIDTH_PER_EPS"]
@@ -129,7 +130,7 @@ class PreparedWidths:
         else:
             found = _found_contour(mesh, self.c_point, self.level, extremes, merge)
         with side or nullcontext():  # waited for however the integrals end
-            low, high, tail = bulk_plateaus(self.c_point, self.level) if plateaus is None else plateaus
+            low, high, tail = bulk_plateaus(self.c_point, self.level, mesh) if plateaus is None else plateaus
             self.plateaus = (low, high, tail)
             self.cell_mixed = _cell_mixed(mesh, indicator, low, high, tail)
             if (low, high) == (0.0, 1.0):
@@ -192,91 +193,6 @@ def _cell_mixed(mesh: Mesh, indicator, low: float, high: float, tail: float):
     c = np.clip(np.where(np.isfinite(c), c, 0.0), 0.0, 1.0)
     keep = (c > tail) & (c < 1.0 - tail)
     return float(np.sum((c * (1.0 - c) * mesh.cell_measures)[keep]))
-
-
-#: bulk values within this of 0 and 1 are taken as 0 and 1 (no rescaling)
-PLATEAU_TOLERANCE = 1e-3
-#: a plateau beyond 0.25 of its ideal value counts when this share of its side's values lies within
-#: :data:`PLATEAU_BAND` of it (see :func:`bulk_plateaus`)
-PLATEAU_SHARE = 0.2
-PLATEAU_BAND = 0.01
-
-
-def bulk_plateaus(c_point: np.ndarray, level: float) -> tuple[float, float, float]:
-    """Bulk values of the two phases and the tail cut-off of the width integrals.
-
-    Parameters
-    ----------
-    c_point : ndarray of shape (n_points,)
-        Point values of the indicator (not clipped).
-    level : float
-        The contour level: values below belong to the low phase.
-
-    Returns
-    -------
-    low, high : float
-        The bulk value of each phase: starting from the side's extreme
-        (0.5th or 99.5th percentile), three times the median of the side's
-        values within 0.05. A side keeps its ideal value (0 or 1) when the
-        result moves more than 0.01 from its extreme (no plateau: the
-        inside of a thin filament), lies beyond 0.25 of the ideal with
-        less than a fifth of the side's values within 0.01 of it (the top
-        of a drop that never reached its bulk, not the bulk of a partially
-        miscible phase at 0.3), or lies
-        within three scaled MADs of those values of it (a smooth profile
-        still approaching its ideal, not a bulk sitting off it).
-        ``(0.0, 1.0)`` when both lie within ``PLATEAU_TOLERANCE`` (1e-3) of
-        0 and 1.
-    tail : float
-        Cells whose rescaled corner values all lie within ``tail`` of 0 or
-        of 1 are left out of the width integrals: 1e-6 with bulk values at
-        0 and 1; else three scaled MADs of the bulk values about their
-        plateau (the spread of bulk values between droplets, as the
-        Gibbs-Thomson shift of a Cahn-Hilliard run gives), at most 0.02.
-
-    Notes
-    -----
-    A Cahn-Hilliard run relaxes to bulk values off +-1 (curvature shifts
-    them; a bulk of 0.01 in c over the whole domain adds 0.01 x volume to
-    int c (1 - c) dV, which the threshold-free estimator reads as width).
-    The estimators then work on (c - low) / (high - low): the logistic
-    profile between any two plateaus gives its 5-95 % thickness between them.
-    """
-    c = np.asarray(c_point, dtype=np.float64)
-    finite = np.isfinite(c)
-    if not finite.all():  # (no copy of the values when all are finite)
-        c = c[finite]
-    plateaus, spreads = [], []
-    for side, ideal, q in ((c[c < level], 0.0, 0.5), (c[c > level], 1.0, 99.5)):
-        if side.size == 0:
-            plateaus.append(ideal)
-            spreads.append(0.0)
-            continue
-        extreme = float(np.percentile(side, q))
-        g, near = extreme, side
-        for _ in range(3):
-            near = side[np.abs(side - g) < 0.05]
-            median = float(np.median(near))  # never empty: the extreme has neighbours within 0.05
-            if median == g:  # the same g would select the same values again: settled
-                break
-            g = median
-        spread = 1.4826 * float(np.median(np.abs(near - g)))
-        # beyond 0.25 of the ideal, a plateau must hold a fifth of its side (a bulk, as a partially
-        # miscible pair's phases sit at 0.3 and 0.7; not the top of a drop that never reached its bulk)
-        held = np.count_nonzero(np.abs(side - g) <= PLATEAU_BAND) >= PLATEAU_SHARE * side.size
-        if abs(g - extreme) > 0.01 or (abs(g - ideal) > 0.25 and not held) or abs(g - ideal) <= 3.0 * spread:
-            # no plateau on this side (the inside of a thin filament, a profile still
-            # approaching its ideal value): the ideal value
-            plateaus.append(ideal)
-            spreads.append(0.0)
-            continue
-        plateaus.append(g)
-        spreads.append(spread)
-    low, high = plateaus
-    if abs(low) <= PLATEAU_TOLERANCE and abs(high - 1.0) <= PLATEAU_TOLERANCE:
-        return 0.0, 1.0, _TAIL
-    tail = float(np.clip(3.0 * max(spreads) / (high - low), _TAIL, 0.02))
-    return low, high, tail
 
 
 def _check_plateaus(plateaus) -> tuple[float, float, float]:

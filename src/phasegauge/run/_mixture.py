@@ -28,8 +28,9 @@ MIXTURE_COLUMNS = ("temperature", "mean_composition", "bulk_composition_lean", "
 #: steps.csv columns of a run with a solute
 SOLUTE_COLUMNS = ("solute_lean", "solute_rich", "partition_coefficient", "extraction_progress",
                   "lever_rule_residual")
-#: bulks apart by more than this many times the sum of their spreads (half interquartile ranges) are
-#: separated under half the binodal's gap too (see :func:`_separated`; our rule, not a published one)
+#: bulks apart by more than this many times the sum of their spreads (half interquartile ranges), and
+#: by a quarter of the binodal's gap, are separated under half its gap too (see :func:`_separated`; our
+#: rule, not a published one)
 SEPARATION_SPREADS = 4.0
 
 
@@ -195,17 +196,20 @@ def mixture_step(step, mesh, ind, contour, metrics: dict, options, droplets=None
 
 def _separated(bulk: dict, binodal_lean: float, binodal_rich: float, options) -> bool:
     """Whether both bulks were measured and lie apart: by more than the tolerance, and either by half the
-    binodal's gap (where the model has one) or by :data:`SEPARATION_SPREADS` times the sum of their
-    spreads. A quench's noise sets bulks a few hundredths apart on the two sides of its contour, each
-    about as wide as that (not a separation); two flat plateaus at 0.3 and 0.7 are apart by far more than
-    their spreads (a separation whose bulks have not reached the binodal) though under half its gap."""
+    binodal's gap (where the model has one) or by a quarter of it and :data:`SEPARATION_SPREADS` times
+    the sum of their spreads. A quench's noise sets bulks a few hundredths apart on the two sides of its
+    contour, each about as wide as that; the peaks of an early spinodal pattern are narrow but lie a few
+    hundredths apart too (neither is a separation); two flat plateaus at 0.3 and 0.7 are apart by far
+    more than their spreads (a separation whose bulks have not reached the binodal) though under half
+    its gap."""
     lean, rich = bulk["bulk_composition_lean"], bulk["bulk_composition_rich"]
     if not (np.isfinite(lean) and np.isfinite(rich) and rich - lean > options.equilibrium_tolerance):
         return False
     if not (np.isfinite(binodal_lean) and np.isfinite(binodal_rich)):
         return True
     spreads = bulk["bulk_spread_lean"] + bulk["bulk_spread_rich"]
-    return bool(rich - lean > 0.5 * (binodal_rich - binodal_lean) or rich - lean > SEPARATION_SPREADS * spreads)
+    gap = binodal_rich - binodal_lean
+    return bool(rich - lean > 0.5 * gap or (rich - lean > 0.25 * gap and rich - lean > SEPARATION_SPREADS * spreads))
 
 
 def _drop_radius(droplets, dimension) -> float:

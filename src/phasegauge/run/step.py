@@ -290,10 +290,10 @@ def _phase_analyses(step, mesh, ind, options, result, m: dict, velocity: tuple, 
         prepared = interface.prepare_widths(mesh, ind, level=options.level, threads=threads)
         contour, plateaus = prepared.contour, prepared.plateaus
     elif "droplets" in options.analyses:
-        bulk = Beside(interface.bulk_plateaus, ind.point, options.level) if threads >= 2 else None
+        bulk = Beside(interface.bulk_plateaus, ind.point, options.level, mesh) if threads >= 2 else None
         with bulk or nullcontext():
             contour = interface.find_interface(mesh, ind.point, level=options.level)
-        plateaus = interface.bulk_plateaus(ind.point, options.level) if bulk is None else bulk.result()
+        plateaus = interface.bulk_plateaus(ind.point, options.level, mesh) if bulk is None else bulk.result()
     labels = None  # with threads to spare, the droplets are labelled beside the widths (nothing there warns)
     if "droplets" in options.analyses and "interface" in options.analyses and threads >= 2:
         labels = Beside(_label_droplets, mesh, ind, options, u_cell, contour, plateaus)

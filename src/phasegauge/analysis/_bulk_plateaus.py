@@ -1,0 +1,123 @@
+"""The bulk values of the two phases an interface's widths are taken between (:func:`bulk_plateaus`)."""
+
+from __future__ import annotations
+
+import numpy as np
+
+from ._width_integrals import _TAIL
+
+__all__ = ["bulk_plateaus", "point_volumes", "PLATEAU_TOLERANCE", "PLATEAU_SHARE", "PLATEAU_BAND"]
+
+#: bulk values within this of 0 and 1 are taken as 0 and 1 (no rescaling)
+PLATEAU_TOLERANCE = 1e-3
+#: a plateau beyond 0.25 of its ideal value counts when this share of its side's values lies within
+#: :data:`PLATEAU_BAND` of it (see :func:`bulk_plateaus`)
+PLATEAU_SHARE = 0.2
+PLATEAU_BAND = 0.01
+
+
+def bulk_plateaus(c_point: np.ndarray, level: float, mesh=None) -> tuple[float, float, float]:
+    """Bulk values of the two phases and the tail cut-off of the width integrals.
+
+    Parameters
+    ----------
+    c_point : ndarray of shape (n_points,)
+        Point values of the indicator (not clipped).
+    level : float
+        The contour level: values below belong to the low phase.
+    mesh : Mesh, optional
+        The mesh of the points: a plateau's share of its side is then of the points'
+        volumes (:func:`point_volumes`), so a mesh refined towards the interface does
+        not hide it; without it, of the points' count.
+
+    Returns
+    -------
+    low, high : float
+        The bulk value of each phase: starting from the side's extreme
+        (0.5th or 99.5th percentile), three times the median of the side's
+        values within 0.05. A side keeps its ideal value (0 or 1) when the
+        result moves more than 0.01 from its extreme (no plateau: the
+        inside of a thin filament), lies beyond 0.25 of the ideal with
+        less than a fifth of the side (by volume, given the mesh) within 0.01 of it (the top
+        of a drop that never reached its bulk, not the bulk of a partially
+        miscible phase at 0.3), or lies
+        within three scaled MADs of those values of it (a smooth profile
+        still approaching its ideal, not a bulk sitting off it).
+        ``(0.0, 1.0)`` when both lie within ``PLATEAU_TOLERANCE`` (1e-3) of
+        0 and 1.
+    tail : float
+        Cells whose rescaled corner values all lie within ``tail`` of 0 or
+        of 1 are left out of the width integrals: 1e-6 with bulk values at
+        0 and 1; else three scaled MADs of the bulk values about their
+        plateau (the spread of bulk values between droplets, as the
+        Gibbs-Thomson shift of a Cahn-Hilliard run gives), at most 0.02.
+
+    Notes
+    -----
+    A Cahn-Hilliard run relaxes to bulk values off +-1 (curvature shifts
+    them; a bulk of 0.01 in c over the whole domain adds 0.01 x volume to
+    int c (1 - c) dV, which the threshold-free estimator reads as width).
+    The estimators then work on (c - low) / (high - low): the logistic
+    profile between any two plateaus gives its 5-95 % thickness between them.
+    """
+    c = np.asarray(c_point, dtype=np.float64)
+    finite = np.isfinite(c)
+    if not finite.all():  # (no copy of the values when all are finite)
+        c = c[finite]
+    plateaus, spreads = [], []
+    for below, ideal, q in ((True, 0.0, 0.5), (False, 1.0, 99.5)):
+        mask = c < level if below else c > level
+        side = c[mask]
+        if side.size == 0:
+            plateaus.append(ideal)
+            spreads.append(0.0)
+            continue
+        extreme = float(np.percentile(side, q))
+        g, near = extreme, side
+        for _ in range(3):
+            near = side[np.abs(side - g) < 0.05]
+            median = float(np.median(near))  # never empty: the extreme has neighbours within 0.05
+            if median == g:  # the same g would select the same values again: settled
+                break
+            g = median
+        spread = 1.4826 * float(np.median(np.abs(near - g)))
+        # beyond 0.25 of the ideal, a plateau must hold a fifth of its side (a bulk, as a partially
+        # miscible pair's phases sit at 0.3 and 0.7; not the top of a drop that never reached its bulk)
+        far = abs(g - ideal) > 0.25
+        if far and not (abs(g - extreme) > 0.01 or abs(g - ideal) <= 3.0 * spread):
+            far = not _holds(side, g, mesh, mask, finite)
+        if abs(g - extreme) > 0.01 or far or abs(g - ideal) <= 3.0 * spread:
+            # no plateau on this side (the inside of a thin filament, a profile still
+            # approaching its ideal value): the ideal value
+            plateaus.append(ideal)
+            spreads.append(0.0)
+            continue
+        plateaus.append(g)
+        spreads.append(spread)
+    low, high = plateaus
+    if abs(low) <= PLATEAU_TOLERANCE and abs(high - 1.0) <= PLATEAU_TOLERANCE:
+        return 0.0, 1.0, _TAIL
+    tail = float(np.clip(3.0 * max(spreads) / (high - low), _TAIL, 0.02))
+    return low, high, tail
+
+
+def _holds(side: np.ndarray, g: float, mesh, mask: np.ndarray, finite: np.ndarray) -> bool:
+    """Whether :data:`PLATEAU_SHARE` of a side (its values ``side``, where ``mask`` holds among the finite
+    points) lies within :data:`PLATEAU_BAND` of ``g``: by the points' volumes given the mesh, else by count."""
+    near = np.abs(side - g) <= PLATEAU_BAND
+    if mesh is None:
+        return np.count_nonzero(near) >= PLATEAU_SHARE * side.size
+    volume = point_volumes(mesh)
+    volume = (volume if finite.all() else volume[finite])[mask]
+    return float(volume[near].sum()) >= PLATEAU_SHARE * float(volume.sum())
+
+
+def point_volumes(mesh) -> np.ndarray:
+    """Each point's share of the mesh's volume: every cell's measure split evenly among its corners
+    (made once a mesh)."""
+    def compute():
+        a = mesh.incidence
+        corners = np.asarray(a.sum(axis=1)).ravel()
+        return a.T @ (mesh.cell_measures / np.maximum(corners, 1))
+
+    return mesh.memo("point_volumes", compute)
