@@ -136,3 +136,11 @@ def test_the_command_line_recipe_and_compare_take_it(tmp_path):
                                        "--field-b", "alpha", "--level-set-a", "--phase-a", "lower",
                                        "-o", str(tmp_path / "c"), "-q"])
     assert result.exit_code == 0, result.output
+
+
+def test_a_signed_distance_read_as_an_indicator_names_the_flag(tmp_path):
+    # without --level-set the field's range warning says what it may be
+    from phasegauge.errors import RangeWarning
+
+    with pytest.warns(RangeWarning, match="or --level-set if it is a signed distance"):
+        measure(_series(str(tmp_path), _distance, (0.2,)), "phi", analyses=("conservation",))

@@ -341,10 +341,12 @@ def check_range(values: np.ndarray, value_range, *, name: str = "", where: str =
     vmin, vmax = float(values.min()), float(values.max())
     span = hi - lo
     if vmin < lo - 0.1 * span or vmax > hi + 0.1 * span:
+        signed = (", or --level-set if it is a signed distance to the interface (a level set)"
+                  if vmin < 0 < vmax else "")
         warnings.warn(RangeWarning(
             f"field '{name}' spans [{vmin:.4g}, {vmax:.4g}] but the range is [{lo:g}, {hi:g}]; "
             f"give the field's own range (for example --range {_round_range(vmin, vmax)}; to compare, "
-            "--range-a or --range-b for the run it is)", where=where),
+            f"--range-a or --range-b for the run it is){signed}", where=where),
             stacklevel=3)
 
 
