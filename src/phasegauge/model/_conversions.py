@@ -152,20 +152,24 @@ def good_cells_fit(mesh: Mesh, good: np.ndarray) -> PointFit:
     return fit
 
 
-def linear_point_values(mesh: Mesh, flat: np.ndarray, good: np.ndarray, fallback: np.ndarray) -> np.ndarray:
+def linear_point_values(mesh: Mesh, flat: np.ndarray, good: np.ndarray, fallback: np.ndarray, *,
+                        limited: bool = True) -> np.ndarray:
     """Point values of the least-squares linear fit through the good cells around each point, kept in
-    their range; ``fallback`` where the fit is ill-posed."""
+    their range (unless not ``limited``); ``fallback`` where the fit is ill-posed."""
     fit = point_fit(mesh) if good.all() else good_cells_fit(mesh, good)
-    return _fitted_values(fit, flat, fallback)
+    return _fitted_values(fit, flat, fallback, limited)
 
 
-def _fitted_values(fit: PointFit, flat: np.ndarray, fallback: np.ndarray) -> np.ndarray:
+def _fitted_values(fit: PointFit, flat: np.ndarray, fallback: np.ndarray, limited: bool = True) -> np.ndarray:
     """:func:`linear_point_values` by a :class:`PointFit` (every cell's, or the good cells')."""
     out = fallback.copy()
     if not fit.posed.any():
         return out
     vals = np.take(flat, fit.cols, axis=0)  # (m, k)
     value = np.add.reduceat(fit.coef[:, None] * vals, fit.starts, axis=0)
+    if not limited:
+        out[fit.points[fit.posed]] = value[fit.posed]
+        return out
     vmax = np.maximum.reduceat(vals, fit.starts, axis=0)
     vmin = np.minimum.reduceat(vals, fit.starts, axis=0)
     keep = fit.posed

@@ -293,8 +293,9 @@ def make_indicator(mesh: Mesh, fields, name: str, *, range=None, phase: str = "u
         The field is a level set (a signed distance, zero on the interface): the
         indicator is its cut-cell fractions on cells and a ramp whose 0.5 contour
         is its zero contour on points (:func:`.level_set.level_set_indicator`);
-        ``range`` is not used. Data on cells goes to the points first (the
-        least-squares reconstruction, exact for a linear field).
+        ``range`` is not used. Data on cells goes to the points first
+        (:func:`.level_set.level_set_points`: exact for a linear field, at
+        boundary points too).
 
     Returns
     -------
@@ -318,10 +319,10 @@ def make_indicator(mesh: Mesh, fields, name: str, *, range=None, phase: str = "u
         warnings.warn(NonFiniteWarning(f"field '{name}' has {nonfinite} NaN or Inf values; they are left "
                                        "out of every integral", where=where), stacklevel=2)
     if level_set:
-        from .level_set import level_set_indicator
+        from .level_set import level_set_indicator, level_set_points
 
         phi = np.where(finite, values, np.nan)
-        phi = phi if location == "point" else mesh.cell_to_point(phi)
+        phi = phi if location == "point" else level_set_points(mesh, phi)  # continued to the boundary
         cell, point = level_set_indicator(mesh, phi, phase)
         return Indicator(cell, point, location, nonfinite, name, value_range, phase, copies, level_set=phi)
     if warn and nonfinite < values.size:

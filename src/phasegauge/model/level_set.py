@@ -18,7 +18,50 @@ from .corners import corner_extremes
 from .mesh import Mesh
 from .simplices import clip_simplices, simplex_measures, split_cells
 
-__all__ = ["level_set_indicator"]
+__all__ = ["level_set_indicator", "level_set_points"]
+
+
+def level_set_points(mesh: Mesh, phi_cell: np.ndarray) -> np.ndarray:
+    """Point values of a level set given on cells: the least-squares linear fit through the cells around
+    each point without its limiter, and where that is ill-posed (a boundary point whose cells' centroids
+    lie in a line, as along a wall of a structured mesh) the fit through the cells two rings out. Both
+    are exact for a linear phi, so phi's sign change in the row of cells at a wall is kept. NaN cells are
+    left out."""
+    from ._conversions import good_cells_fit, linear_point_values, point_fit
+
+    phi = np.asarray(phi_cell, dtype=np.float64)
+    good = np.isfinite(phi)
+    mean = mesh.cell_to_point(phi, method="mean")
+    out = linear_point_values(mesh, phi[:, None], good, mean[:, None], limited=False)[:, 0]
+    fit = point_fit(mesh) if good.all() else good_cells_fit(mesh, good)
+    posed = np.zeros(mesh.n_points, dtype=bool)
+    posed[fit.points[fit.posed]] = True
+    bad = np.flatnonzero(~posed)
+    if bad.size:
+        out[bad] = _two_ring_values(mesh, phi, good, bad)
+    return out
+
+
+def _two_ring_values(mesh: Mesh, phi: np.ndarray, good: np.ndarray, points: np.ndarray) -> np.ndarray:
+    """The linear least-squares fit through the good cells that share a point with a cell of each of
+    ``points``, evaluated there (NaN where even that is ill-posed)."""
+    a = mesh.incidence  # (cells, points)
+    near = a[:, points].T.tocsr()  # the points' cells
+    ring = ((near @ a) @ a.T).tocsr()  # cells sharing a point with them
+    rows = np.repeat(np.arange(points.size), np.diff(ring.indptr))
+    keep = good[ring.indices]
+    rows, cells = rows[keep], ring.indices[keep]
+    dim = mesh.dimension
+    basis = np.c_[np.ones(cells.size), mesh.cell_centroids[cells] - mesh.coordinates[points][rows]]  # (pairs, dim + 1)
+    normal = np.zeros((points.size, dim + 1, dim + 1))
+    np.add.at(normal, rows, basis[:, :, None] * basis[:, None, :])
+    right = np.zeros((points.size, dim + 1))
+    np.add.at(right, rows, basis * phi[cells][:, None])
+    out = np.full(points.size, np.nan)
+    ok = np.linalg.cond(normal) < 1e12
+    if ok.any():
+        out[ok] = np.linalg.solve(normal[ok], right[ok][:, :, None])[:, 0, 0]
+    return out
 
 
 def level_set_indicator(mesh: Mesh, phi_point: np.ndarray, phase: str = "upper") -> tuple[np.ndarray, np.ndarray]:
