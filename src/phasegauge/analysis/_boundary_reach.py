@@ -21,7 +21,7 @@ _MAX_SAMPLES = 64
 #: faces first asked for near each point of a line; a point with this many within its radius asks for all
 _FIRST = 16
 #: line points per pass of :func:`_facing_cut` (the pass's temporaries stay small)
-_CHUNK = 1 << 16
+_CHUNK = 1 << 14
 #: a boundary face faces an element when their normals lie within 45 degrees of each other
 _FACING = np.cos(np.pi / 4)
 
