@@ -34,7 +34,7 @@ def phase_diagram_figure(columns: dict, record: dict):
     component = record.get("component") or "component"
     ax.set_xlabel(f"mole fraction of {component}")
     ax.set_ylabel("temperature (K)")
-    ax.set_xlim(0.0, 1.0)
+    ax.set_xlim(-0.02, 1.02)  # ends at 0.9999 stay in sight
     ax.set_ylim(float(np.min(t)), float(np.max(t)))
     ax.set_title(f"phase diagram ({record.get('kind_of_model', '')})")
     ax.legend(loc="best", fontsize="small")
