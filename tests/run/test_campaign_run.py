@@ -199,6 +199,16 @@ def test_a_failed_run_keeps_the_finished_ones_for_resume(tmp_path):
     assert list(pd.read_csv(tmp_path / "camp" / "campaign.csv")["run"]) == ["pe20", "pe40", "pe80"]
 
 
+def test_a_run_whose_series_is_missing_is_refused_before_any_run(tmp_path):
+    # the third run's file is gone: refused with its label before the first two are measured
+    recipe = _recipe(str(tmp_path), (20, 40, 80))
+    (tmp_path / "pe_80.vtu").unlink()
+    result = CliRunner().invoke(main, ["run", recipe, "-q"])
+    assert result.exit_code == 2, result.output
+    assert "[[runs]] 'pe80'" in result.output and "pe_80.vtu" in result.output and "file not found" in result.output
+    assert not (tmp_path / "camp").exists()
+
+
 # ---------------------------------------------------------------- the shipped channel campaign
 def test_channel_campaign_recipe_runs_on_the_sample(tmp_path):
     """recipes/channel_mixing.toml: one run per inlet flow rate of sample_fields/channel_mixing/."""

@@ -41,7 +41,8 @@ class Finding:
         ``droplets_under_resolved``, ``steps_skipped``, the mixture findings
         (``separated_one_phase``, ``mixed_inside_spinodal``, ``bulk_not_measured``, ``binodal_gap``,
         ``binodal_gibbs_thomson``, ``binodal_reached``; see ``run/_mixture.py``), ``distance_error`` (a level
-        set no longer a distance function: ``run/_level_set_run.py``), or ``warning`` (a
+        set no longer a distance function: ``run/_level_set_run.py``), ``tracking_unreliable``
+        (``run/_tracking_findings.py``), or ``warning`` (a
         warning of the steps or the series, repeats collapsed).
     severity : {'warning', 'note'}
         ``warning``: the numbers need a closer look; ``note``: how to read them.
@@ -336,11 +337,13 @@ def assemble(series, results: list, options, *, notes=(), feed: TrackingFeed | N
                                 cells_across=cells, physical_diffusivity=options.diffusivity)
     from ._level_set_run import level_set_audit, level_set_findings
     from ._mixture import mixture_findings
+    from ._tracking_findings import tracking_findings
 
     audit = level_set_audit(audit) if options.level_set and audit else audit
     # done is never empty here (no step analysed raised above; the first step is never skipped after)
     found = findings(steps, droplets, audit, options, skipped, dimension=done[0].dimension)
-    found += mixture_findings(steps, options) + level_set_findings(steps) + [
+    found += mixture_findings(steps, options) + level_set_findings(steps)
+    found += tracking_findings(droplets, events, options, bounds=done[0].outline.bounds) + [
         Finding("warning", "warning", text, {"category": category.__name__})
         for category, text in summary if not issubclass(category, SkippedStepWarning)]
     mesh = None

@@ -150,6 +150,7 @@ def run_campaign(runs: list, options, *, out, parameter: str = "parameter", unit
     workers = check_workers(workers)
     if threads is not None:
         check_threads(threads)
+    _check_series(runs, labels, options)
     started = time.time()
     key = hashlib.sha256(json.dumps([[os.path.abspath(r["path"]), float(r["parameter"]), label]
                                      for r, label in zip(runs, labels)]).encode()
@@ -195,6 +196,19 @@ class _RunJob:
     path: str
     folder: str
     resume: bool
+
+
+def _check_series(runs: list, labels: list, options) -> None:
+    """Find every run's steps before any is measured: a run whose series cannot be found or listed is
+    refused with its label, before the others' work (the steps themselves are read when measured)."""
+    from ..errors import PhasegaugeError
+    from ..io import Series
+
+    for r, label in zip(runs, labels):
+        try:
+            Series(r["path"], sort_by_time=options.sort_by_time).close()
+        except PhasegaugeError as err:
+            raise type(err)(err.what, where=f"[[runs]] '{label}', {err.where or r['path']}", fix=err.fix) from None
 
 
 def _measure_job(job: _RunJob, settings: dict, *, workers: int, progress, progress_label: str):

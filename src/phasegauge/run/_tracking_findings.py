@@ -1,0 +1,134 @@
+"""Whether a run's droplet tracks can be trusted: links that jump between drops, drops that vanish and appear.
+
+Tracks link each step's droplets to the previous step's by the overlap of their cells (moved by the
+velocity where one is given) and, for those overlapping nothing, by the nearest centroid within a
+diameter. When drops move about their own size or more between outputs, without a velocity, a drop's
+cells overlap the drop behind it instead: the track jumps to another drop (its volume changes by a
+large factor with no event), or a drop is written as a disappearance and an appearance of the same
+volume in one step.
+"""
+
+from __future__ import annotations
+
+import numpy as np
+
+__all__ = ["tracking_findings", "JUMP_FACTOR", "SAME_VOLUME"]
+
+#: a one-to-one link whose volume changes by this factor or more, with no event, looks like a jump
+#: to another drop (our threshold)
+JUMP_FACTOR = 1.5
+#: a disappearance and an appearance in one step whose volumes agree within this share look like one
+#: drop that moved beyond the gate (our threshold)
+SAME_VOLUME = 0.1
+
+
+def tracking_findings(droplets, events, options, bounds=None) -> list:
+    """A warning when tracks look unreliable (see the module notes), naming the fix: a velocity field
+    (``--velocity``), or output written more often. Drops flagged under-resolved, and with ``bounds``
+    (the domain's, shape (2, 3)) drops whose box touches the domain's (one leaving through an outlet
+    shrinks), are left out of the jumps."""
+    from .assemble import Finding
+
+    if droplets is None or not len(droplets) or "track" not in droplets:
+        return []
+    jumps = _jumps(droplets, events, bounds)
+    pairs = _vanished_and_appeared(droplets, events, bounds)
+    if not jumps and not pairs:
+        return []
+    parts = []
+    if jumps:
+        factor, time = max(jumps)
+        parts.append(f"{len(jumps)} link(s) from one step to the next change a drop's volume by a factor of "
+                     f"{JUMP_FACTOR:g} or more with no event (largest {factor:.3g} at t = {time:g})")
+    if pairs:
+        parts.append(f"{len(pairs)} drop(s) disappear as another of the same volume (within "
+                     f"{100 * SAME_VOLUME:g} %) appears in the same step (first at t = {min(pairs):g})")
+    fix = ("give the velocity field (--velocity) so cells are moved before they are matched, or write output "
+           "more often" if options.velocity is None else "write output more often")
+    text = ("droplet tracks may link different drops: " + "; ".join(parts) + ", as when drops move about "
+            f"their own size or more between outputs; {fix} (counts and volumes per step are not affected)")
+    return [Finding("tracking_unreliable", "warning", text,
+                    {"jumps": len(jumps), "largest_factor": float(max(jumps)[0]) if jumps else None,
+                     "vanished_and_appeared": len(pairs), "factor_limit": JUMP_FACTOR})]
+
+
+def _in_events(events) -> set:
+    """(step, track) of every track named after an event of that step."""
+    named = set()
+    if events is None or not len(events):
+        return named
+    for step, after in zip(events["step"], events["after"]):
+        for track in str(after).split():
+            named.add((int(step), int(track)))
+    return named
+
+
+def _jumps(droplets, events, bounds=None) -> list:
+    """(factor, time) of each one-to-one link between consecutive steps whose volume changes by
+    :data:`JUMP_FACTOR` or more, the drop named in no event of the later step, resolved and clear of
+    the domain's boundary at both."""
+    steps = np.unique(droplets["step"].to_numpy())
+    following = dict(zip(steps[:-1], steps[1:]))
+    table = droplets[["step", "time", "track", "volume"]].copy()
+    left_out = np.zeros(len(droplets), dtype=bool)
+    if "under_resolved" in droplets:
+        left_out |= droplets["under_resolved"].astype(bool).to_numpy()
+    if bounds is not None:
+        left_out |= _touches(droplets, np.asarray(bounds, dtype=float))
+    gone = set(zip(droplets["step"].to_numpy()[left_out], droplets["track"].to_numpy()[left_out]))
+    table = table[~left_out]
+    table = table.groupby(["step", "track"], as_index=False).agg(time=("time", "first"), volume=("volume", "sum"))
+    table["next_step"] = table["step"].map(following)
+    later = table[["step", "track", "volume", "time"]].rename(
+        columns={"step": "next_step", "volume": "next_volume", "time": "next_time"})
+    linked = table.merge(later, on=["next_step", "track"])
+    named = _in_events(events) | gone
+    out = []
+    for row in linked.itertuples(index=False):
+        if (int(row.next_step), int(row.track)) in named or not (row.volume > 0 and row.next_volume > 0):
+            continue
+        factor = max(row.volume, row.next_volume) / min(row.volume, row.next_volume)
+        if factor >= JUMP_FACTOR:
+            out.append((float(factor), float(row.next_time)))
+    return out
+
+
+def _touches(droplets, bounds: np.ndarray) -> np.ndarray:
+    """Whether each droplet's box reaches the domain's box along an axis the domain spans."""
+    extent = bounds[1] - bounds[0]
+    near = 1e-9 * float(np.max(extent)) if np.max(extent) > 0 else 0.0
+    touches = np.zeros(len(droplets), dtype=bool)
+    for k, axis in enumerate("xyz"):
+        if extent[k] > 0 and f"bbox_min_{axis}" in droplets:
+            touches |= droplets[f"bbox_min_{axis}"].to_numpy(dtype=float) <= bounds[0, k] + near
+            touches |= droplets[f"bbox_max_{axis}"].to_numpy(dtype=float) >= bounds[1, k] - near
+    return touches
+
+
+def _vanished_and_appeared(droplets, events, bounds=None) -> list:
+    """Times of the steps where a disappearance and an appearance have volumes within :data:`SAME_VOLUME`,
+    with ``bounds`` leaving out drops that leave or enter at the domain's boundary (an outlet and an
+    inlet of equal drops)."""
+    if events is None or not len(events):
+        return []
+    steps = np.unique(droplets["step"].to_numpy())
+    before = dict(zip(steps[1:], steps[:-1]))
+    edge = set()
+    if bounds is not None:
+        touches = _touches(droplets, np.asarray(bounds, dtype=float))
+        edge = set(zip(droplets["step"].to_numpy()[touches], droplets["track"].to_numpy()[touches]))
+
+    def clear(step, tracks) -> bool:
+        return not any((step, int(t)) in edge for t in str(tracks).split())
+
+    times = []
+    for (step, time), group in events.groupby(["step", "time"]):
+        last = before.get(step)
+        gone = np.array([v for kind, b, v in zip(group["kind"], group["before"], group["volume_before"])
+                         if kind == "disappearance" and clear(last, b)], dtype=float)
+        new = np.array([v for kind, a, v in zip(group["kind"], group["after"], group["volume_after"])
+                        if kind == "appearance" and clear(step, a)], dtype=float)
+        for volume in gone:
+            if volume > 0 and new.size and np.min(np.abs(new - volume)) <= SAME_VOLUME * volume:
+                times.append(float(time))
+    return times

@@ -1,0 +1,71 @@
+"""Tracks that link different drops are warned of: drops moving about their own size between outputs.
+
+Outside reference: the drops are written where they are (numpy discs on a grid), so which drop is
+which is known: each moves +20 cells a step; scipy.ndimage.label counts them on every step.
+"""
+
+import numpy as np
+import pytest
+from scipy import ndimage
+
+from conftest import write_listing
+from phasegauge import measure
+from phasegauge.meshgen import grid_mesh
+
+N = 100
+
+
+def _row_of_drops(folder, *, shift, velocity=False, steps=3, drops=((10, 4), (30, 6), (50, 8), (70, 5))):
+    mesh = grid_mesh((N, N), kind="quad")
+    i = np.floor(mesh.cell_centroids[:, 0] * N)
+    j = np.floor(mesh.cell_centroids[:, 1] * N)
+    series, counts = [], []
+    for k in range(steps):
+        inside = np.zeros(mesh.n_cells, dtype=bool)
+        for x0, r in drops:
+            inside |= (i + 0.5 - x0 - shift * k) ** 2 + (j + 0.5 - 50) ** 2 < r * r
+        data = {"c": inside.astype(float)}
+        if velocity:
+            u = np.zeros((mesh.n_cells, 3))
+            u[:, 0] = shift / N / 0.5
+            data["U"] = u
+        series.append((0.5 * k, f"s_{k}.vtu", mesh, data))
+        counts.append(ndimage.label(inside.reshape(N, N))[1])  # scipy's count of the drops written
+    return write_listing(folder, series), counts
+
+
+def test_drops_moving_their_spacing_without_a_velocity_are_warned_of(tmp_path):
+    # four drops 20 cells apart moving 20 cells a step: each drop's cells land on the drop behind it
+    path, counts = _row_of_drops(tmp_path, shift=20)
+    res = measure(path, "c", analyses=("droplets",))
+    assert list(res.steps["droplet_count"]) == counts  # counts are right either way
+    finding = next(f for f in res.findings if f.kind == "tracking_unreliable")
+    assert finding.severity == "warning" and "--velocity" in finding.text
+    assert finding.figures["jumps"] >= 3
+
+
+def test_the_same_drops_with_their_velocity_are_tracked(tmp_path):
+    path, _ = _row_of_drops(tmp_path, shift=20, velocity=True)
+    res = measure(path, "c", analyses=("droplets",), velocity="U")
+    assert "tracking_unreliable" not in [f.kind for f in res.findings]
+    drops = res.droplets
+    # each track keeps one drop's volume from step to step (the rightmost leaves through x = 1)
+    for _, track in drops.groupby("track"):
+        assert track["volume"].max() / track["volume"].min() < 1.2
+
+
+def test_slow_drops_and_a_drop_leaving_through_the_boundary_are_not_warned_of(tmp_path):
+    # moving 2 cells a step: overlap tracks them; the last drop runs out through x = 1 and shrinks
+    path, counts = _row_of_drops(tmp_path, shift=2, steps=6, drops=((20, 5), (45, 6), (96, 6)))
+    res = measure(path, "c", analyses=("droplets",))
+    assert list(res.steps["droplet_count"]) == counts
+    assert "tracking_unreliable" not in [f.kind for f in res.findings]
+
+
+@pytest.mark.parametrize("shift", [30])
+def test_a_drop_that_jumps_beyond_the_gate_is_a_disappearance_and_an_appearance(tmp_path, shift):
+    # one drop of radius 6 moving 30 cells (2.5 diameters) a step: gone and new, with the same volume
+    path, _ = _row_of_drops(tmp_path, shift=shift, steps=2, drops=((30, 6),))
+    res = measure(path, "c", analyses=("droplets",))
+    finding = next(f for f in res.findings if f.kind == "tracking_unreliable")
+    assert finding.figures["vanished_and_appeared"] == 1
