@@ -3,9 +3,10 @@
 Tracks link each step's droplets to the previous step's by the overlap of their cells (moved by the
 velocity where one is given) and, for those overlapping nothing, by the nearest centroid within a
 diameter. When drops move about their own size or more between outputs, without a velocity, a drop's
-cells overlap the drop behind it instead: the track jumps to another drop (its volume changes by a
-large factor with no event), or a drop is written as a disappearance and an appearance of the same
-volume in one step.
+cells overlap the drop behind it instead: the track jumps to another drop (a larger one: its volume
+grows by a large factor with no event, which a drop does not do on its own; a shrinking track may be a
+drop dissolving, as in coarsening), or a drop is written as a disappearance and an appearance of the
+same volume in one step.
 """
 
 from __future__ import annotations
@@ -14,31 +15,32 @@ import numpy as np
 
 __all__ = ["tracking_findings", "JUMP_FACTOR", "SAME_VOLUME"]
 
-#: a one-to-one link whose volume changes by this factor or more, with no event, looks like a jump
-#: to another drop (our threshold)
+#: a one-to-one link whose volume grows by this factor or more, with no event, looks like a jump to
+#: another drop (our threshold)
 JUMP_FACTOR = 1.5
 #: a disappearance and an appearance in one step whose volumes agree within this share look like one
 #: drop that moved beyond the gate (our threshold)
 SAME_VOLUME = 0.1
 
 
-def tracking_findings(droplets, events, options, bounds=None) -> list:
+def tracking_findings(droplets, events, options, bounds=None, steps=None) -> list:
     """A warning when tracks look unreliable (see the module notes), naming the fix: a velocity field
     (``--velocity``), or output written more often. Drops flagged under-resolved, and with ``bounds``
     (the domain's, shape (2, 3)) drops whose box touches the domain's (one leaving through an outlet
-    shrinks), are left out of the jumps."""
+    shrinks), are left out of the jumps; with ``steps`` (steps.csv), so are links across which the bulk
+    values the droplets are measured between (``bulk_c_low``, ``bulk_c_high``) moved by more than 0.005."""
     from .assemble import Finding
 
     if droplets is None or not len(droplets) or "track" not in droplets:
         return []
-    jumps = _jumps(droplets, events, bounds)
+    jumps = _jumps(droplets, events, bounds, _rescaled(steps))
     pairs = _vanished_and_appeared(droplets, events, bounds)
     if not jumps and not pairs:
         return []
     parts = []
     if jumps:
         factor, time = max(jumps)
-        parts.append(f"{len(jumps)} link(s) from one step to the next change a drop's volume by a factor of "
+        parts.append(f"{len(jumps)} link(s) from one step to the next grow a drop's volume by a factor of "
                      f"{JUMP_FACTOR:g} or more with no event (largest {factor:.3g} at t = {time:g})")
     if pairs:
         parts.append(f"{len(pairs)} drop(s) disappear as another of the same volume (within "
@@ -58,13 +60,28 @@ def _in_events(events) -> set:
     if events is None or not len(events):
         return named
     for step, after in zip(events["step"], events["after"]):
-        for track in str(after).split():
-            named.add((int(step), int(track)))
+        named.update((int(step), track) for track in _track_ids(after))
     return named
 
 
-def _jumps(droplets, events, bounds=None) -> list:
-    """(factor, time) of each one-to-one link between consecutive steps whose volume changes by
+def _track_ids(text) -> list:
+    """The track ids of an event's ``before`` or ``after`` (space-separated; empty or NaN: none)."""
+    return [int(t) for t in str(text).split() if t.isdigit()]
+
+
+def _rescaled(steps) -> set:
+    """Steps whose bulk values moved by more than 0.005 from the previous step's (droplet volumes are
+    measured between them, so a volume ratio across such a link says nothing of the tracks)."""
+    if steps is None or not len(steps) or "bulk_c_low" not in steps or "bulk_c_high" not in steps:
+        return set()
+    low = steps["bulk_c_low"].to_numpy(dtype=float)
+    high = steps["bulk_c_high"].to_numpy(dtype=float)
+    moved = (np.abs(np.diff(low)) > 0.005) | (np.abs(np.diff(high)) > 0.005)
+    return {int(k) for k in steps["step"].to_numpy()[1:][moved]}
+
+
+def _jumps(droplets, events, bounds=None, rescaled=frozenset()) -> list:
+    """(factor, time) of each one-to-one link between consecutive steps whose volume grows by
     :data:`JUMP_FACTOR` or more, the drop named in no event of the later step, resolved and clear of
     the domain's boundary at both."""
     steps = np.unique(droplets["step"].to_numpy())
@@ -85,9 +102,10 @@ def _jumps(droplets, events, bounds=None) -> list:
     named = _in_events(events) | gone
     out = []
     for row in linked.itertuples(index=False):
-        if (int(row.next_step), int(row.track)) in named or not (row.volume > 0 and row.next_volume > 0):
+        if ((int(row.next_step), int(row.track)) in named or int(row.next_step) in rescaled
+                or not (row.volume > 0 and row.next_volume > 0)):
             continue
-        factor = max(row.volume, row.next_volume) / min(row.volume, row.next_volume)
+        factor = row.next_volume / row.volume
         if factor >= JUMP_FACTOR:
             out.append((float(factor), float(row.next_time)))
     return out
@@ -119,7 +137,7 @@ def _vanished_and_appeared(droplets, events, bounds=None) -> list:
         edge = set(zip(droplets["step"].to_numpy()[touches], droplets["track"].to_numpy()[touches]))
 
     def clear(step, tracks) -> bool:
-        return not any((step, int(t)) in edge for t in str(tracks).split())
+        return not any((step, t) in edge for t in _track_ids(tracks))
 
     times = []
     for (step, time), group in events.groupby(["step", "time"]):

@@ -343,7 +343,7 @@ def assemble(series, results: list, options, *, notes=(), feed: TrackingFeed | N
     # done is never empty here (no step analysed raised above; the first step is never skipped after)
     found = findings(steps, droplets, audit, options, skipped, dimension=done[0].dimension)
     found += mixture_findings(steps, options) + level_set_findings(steps)
-    found += tracking_findings(droplets, events, options, bounds=done[0].outline.bounds) + [
+    found += tracking_findings(droplets, events, options, bounds=done[0].outline.bounds, steps=steps) + [
         Finding("warning", "warning", text, {"category": category.__name__})
         for category, text in summary if not issubclass(category, SkippedStepWarning)]
     mesh = None
