@@ -209,6 +209,15 @@ def test_a_run_whose_series_is_missing_is_refused_before_any_run(tmp_path):
     assert not (tmp_path / "camp").exists()
 
 
+def test_a_resumed_campaign_does_not_look_for_a_finished_runs_series(tmp_path):
+    # the finished runs' series moved away after the run: a resume keeps their tables and reads nothing
+    recipe = _recipe(str(tmp_path), (20, 40))
+    run_recipe(recipe)
+    (tmp_path / "pe_20.vtu").rename(tmp_path / "archived.vtu")
+    resumed = run_recipe(recipe, resume=True)
+    assert list(resumed.table["run"]) == ["pe20", "pe40"]
+
+
 # ---------------------------------------------------------------- the shipped channel campaign
 def test_channel_campaign_recipe_runs_on_the_sample(tmp_path):
     """recipes/channel_mixing.toml: one run per inlet flow rate of sample_fields/channel_mixing/."""

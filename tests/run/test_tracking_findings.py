@@ -86,3 +86,20 @@ def test_a_dissolving_drop_is_not_warned_of(tmp_path):
     folder.mkdir()
     res = measure(write_listing(folder, series), "c", analyses=("droplets",))
     assert "tracking_unreliable" not in [f.kind for f in res.findings]
+
+
+def test_drops_growing_by_condensation_are_not_warned_of(tmp_path):
+    # diffusion-limited growth, R^2 ~ t in 2D (outputs at t = 1, 2, 3, 4: volumes x2, x1.5, x1.33):
+    # tracks that grow without handing volume over are no swap
+    mesh = grid_mesh((N, N), kind="quad")
+    i = np.floor(mesh.cell_centroids[:, 0] * N)
+    j = np.floor(mesh.cell_centroids[:, 1] * N)
+    series = []
+    for k, t in enumerate((1.0, 2.0, 3.0, 4.0)):
+        r = 4.0 * np.sqrt(t)
+        left = (i + 0.5 - 30) ** 2 + (j + 0.5 - 50) ** 2 < r * r
+        inside = left | ((i + 0.5 - 70) ** 2 + (j + 0.5 - 50) ** 2 < (0.8 * r) ** 2)
+        series.append((t, f"g_{k}.vtu", mesh, {"c": inside.astype(float)}))
+    res = measure(write_listing(tmp_path, series), "c", analyses=("droplets",))
+    assert res.droplets.groupby("track")["volume"].agg(lambda v: v.iloc[1] / v.iloc[0]).min() > 1.8
+    assert "tracking_unreliable" not in [f.kind for f in res.findings]

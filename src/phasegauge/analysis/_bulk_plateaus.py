@@ -44,7 +44,7 @@ def bulk_plateaus(c_point: np.ndarray, level: float, mesh=None) -> tuple[float, 
         within three scaled MADs of those values of it (a smooth profile
         still approaching its ideal, not a bulk sitting off it); a noisy bulk
         is kept all the same where half its side lies within 0.05 of it, it
-        lies more than two spreads off the ideal and moved at most three
+        lies more than three spreads off the ideal and moved at most three
         spreads (a Cahn-Hilliard matrix at 0.03 +- 0.005 while coarsening).
         ``(0.0, 1.0)`` when both lie within ``PLATEAU_TOLERANCE`` (1e-3) of
         0 and 1.
@@ -89,9 +89,9 @@ def bulk_plateaus(c_point: np.ndarray, level: float, mesh=None) -> tuple[float, 
         far = abs(g - ideal) > 0.25
         if far and not (abs(g - extreme) > 0.01 or abs(g - ideal) <= 3.0 * spread):
             far = not _holds(side, g, mesh, mask, finite)
-        # a noisy bulk holding most of its side, off its ideal by more than twice its spread, is a plateau
+        # a noisy bulk holding most of its side, off its ideal by more than three spreads, is a plateau
         # even where the strict tests fail (a Cahn-Hilliard matrix at 0.03 +- 0.005 while coarsening)
-        noisy = (near.size >= 0.5 * side.size and abs(g - ideal) > max(2.0 * spread, PLATEAU_TOLERANCE)
+        noisy = (near.size >= 0.5 * side.size and abs(g - ideal) > max(3.0 * spread, PLATEAU_TOLERANCE)
                  and abs(g - extreme) <= max(0.01, 3.0 * spread) and not far)
         if not noisy and (abs(g - extreme) > 0.01 or far or abs(g - ideal) <= 3.0 * spread):
             # no plateau on this side (the inside of a thin filament, a profile still

@@ -3,10 +3,10 @@
 Tracks link each step's droplets to the previous step's by the overlap of their cells (moved by the
 velocity where one is given) and, for those overlapping nothing, by the nearest centroid within a
 diameter. When drops move about their own size or more between outputs, without a velocity, a drop's
-cells overlap the drop behind it instead: the track jumps to another drop (a larger one: its volume
-grows by a large factor with no event, which a drop does not do on its own; a shrinking track may be a
-drop dissolving, as in coarsening), or a drop is written as a disappearance and an appearance of the
-same volume in one step.
+cells overlap the drop behind it instead: tracks swap drops (one track grows by a large factor to the
+volume another track had the step before, while that one shrinks, with no event: drops growing by
+condensation or coarsening, or dissolving, change volume too, but do not hand it over), or a drop is
+written as a disappearance and an appearance of the same volume in one step.
 """
 
 from __future__ import annotations
@@ -15,8 +15,8 @@ import numpy as np
 
 __all__ = ["tracking_findings", "JUMP_FACTOR", "SAME_VOLUME"]
 
-#: a one-to-one link whose volume grows by this factor or more, with no event, looks like a jump to
-#: another drop (our threshold)
+#: a one-to-one link whose volume grows by this factor or more to what another track that shrank as
+#: much held the step before, with no event, looks like a swap of drops (our threshold)
 JUMP_FACTOR = 1.5
 #: a disappearance and an appearance in one step whose volumes agree within this share look like one
 #: drop that moved beyond the gate (our threshold)
@@ -40,8 +40,9 @@ def tracking_findings(droplets, events, options, bounds=None, steps=None) -> lis
     parts = []
     if jumps:
         factor, time = max(jumps)
-        parts.append(f"{len(jumps)} link(s) from one step to the next grow a drop's volume by a factor of "
-                     f"{JUMP_FACTOR:g} or more with no event (largest {factor:.3g} at t = {time:g})")
+        parts.append(f"{len(jumps)} track(s) grow by a factor of {JUMP_FACTOR:g} or more to the volume (within "
+                     f"{100 * SAME_VOLUME:g} %) that another track, shrinking as much, held the step before, with "
+                     f"no event (largest {factor:.3g} at t = {time:g})")
     if pairs:
         parts.append(f"{len(pairs)} drop(s) disappear as another of the same volume (within "
                      f"{100 * SAME_VOLUME:g} %) appears in the same step (first at t = {min(pairs):g})")
@@ -82,7 +83,7 @@ def _rescaled(steps) -> set:
 
 def _jumps(droplets, events, bounds=None, rescaled=frozenset()) -> list:
     """(factor, time) of each one-to-one link between consecutive steps whose volume grows by
-    :data:`JUMP_FACTOR` or more, the drop named in no event of the later step, resolved and clear of
+    :data:`JUMP_FACTOR` or more to what a track shrinking as much held the step before, the drop named in no event of the later step, resolved and clear of
     the domain's boundary at both."""
     steps = np.unique(droplets["step"].to_numpy())
     following = dict(zip(steps[:-1], steps[1:]))
@@ -100,14 +101,16 @@ def _jumps(droplets, events, bounds=None, rescaled=frozenset()) -> list:
         columns={"step": "next_step", "volume": "next_volume", "time": "next_time"})
     linked = table.merge(later, on=["next_step", "track"])
     named = _in_events(events) | gone
+    keep = [not ((int(r.next_step), int(r.track)) in named or int(r.next_step) in rescaled)
+            and r.volume > 0 and r.next_volume > 0 for r in linked.itertuples(index=False)]
+    linked = linked[np.asarray(keep, dtype=bool)] if len(linked) else linked
     out = []
-    for row in linked.itertuples(index=False):
-        if ((int(row.next_step), int(row.track)) in named or int(row.next_step) in rescaled
-                or not (row.volume > 0 and row.next_volume > 0)):
-            continue
-        factor = row.next_volume / row.volume
-        if factor >= JUMP_FACTOR:
-            out.append((float(factor), float(row.next_time)))
+    for (step, time), links in linked.groupby(["next_step", "next_time"]):
+        ratio = links["next_volume"].to_numpy() / links["volume"].to_numpy()
+        handed = links["volume"].to_numpy()[ratio <= 1.0 / JUMP_FACTOR]  # what the shrinking tracks held
+        for factor, new in zip(ratio, links["next_volume"].to_numpy()):
+            if factor >= JUMP_FACTOR and handed.size and np.min(np.abs(handed - new)) <= SAME_VOLUME * new:
+                out.append((float(factor), float(time)))
     return out
 
 
@@ -125,16 +128,18 @@ def _touches(droplets, bounds: np.ndarray) -> np.ndarray:
 
 def _vanished_and_appeared(droplets, events, bounds=None) -> list:
     """Times of the steps where a disappearance and an appearance have volumes within :data:`SAME_VOLUME`,
-    with ``bounds`` leaving out drops that leave or enter at the domain's boundary (an outlet and an
-    inlet of equal drops)."""
+    drops flagged under-resolved left out, and with ``bounds`` drops that leave or enter at the domain's
+    boundary (an outlet and an inlet of equal drops)."""
     if events is None or not len(events):
         return []
     steps = np.unique(droplets["step"].to_numpy())
     before = dict(zip(steps[1:], steps[:-1]))
-    edge = set()
+    edge = np.zeros(len(droplets), dtype=bool)
     if bounds is not None:
-        touches = _touches(droplets, np.asarray(bounds, dtype=float))
-        edge = set(zip(droplets["step"].to_numpy()[touches], droplets["track"].to_numpy()[touches]))
+        edge |= _touches(droplets, np.asarray(bounds, dtype=float))
+    if "under_resolved" in droplets:  # specks of a few cells come and go with equal volumes
+        edge |= droplets["under_resolved"].astype(bool).to_numpy()
+    edge = set(zip(droplets["step"].to_numpy()[edge], droplets["track"].to_numpy()[edge]))
 
     def clear(step, tracks) -> bool:
         return not any((step, t) in edge for t in _track_ids(tracks))

@@ -150,12 +150,13 @@ def run_campaign(runs: list, options, *, out, parameter: str = "parameter", unit
     workers = check_workers(workers)
     if threads is not None:
         check_threads(threads)
-    _check_series(runs, labels, options)
     started = time.time()
     key = hashlib.sha256(json.dumps([[os.path.abspath(r["path"]), float(r["parameter"]), label]
                                      for r, label in zip(runs, labels)]).encode()
                          + options.key().encode()).hexdigest()[:16]
     folders = [os.path.join(os.fspath(out), f"run_{label}") for label in labels]
+    _check_series([(r, label) for r, label, f in zip(runs, labels, folders)  # those still to measure
+                   if not (resume and os.path.isdir(f) and _finished(f) is not None)], options)
     with output_transaction(out) as txn:
         prepare_output_folder(out, overwrite=overwrite, resume=resume, run_key=key, code=code_digest())
         if txn is not None:  # a failed run leaves the finished ones for --resume
@@ -198,13 +199,14 @@ class _RunJob:
     resume: bool
 
 
-def _check_series(runs: list, labels: list, options) -> None:
-    """Find every run's steps before any is measured: a run whose series cannot be found or listed is
-    refused with its label, before the others' work (the steps themselves are read when measured)."""
+def _check_series(runs: list, options) -> None:
+    """Find the steps of every run to measure (``(run, label)`` pairs) before any is measured: a run whose
+    series cannot be found or listed is refused with its label, before the others' work (the steps
+    themselves are read when measured; a resumed campaign's finished runs are not looked at)."""
     from ..errors import PhasegaugeError
     from ..io import Series
 
-    for r, label in zip(runs, labels):
+    for r, label in runs:
         try:
             Series(r["path"], sort_by_time=options.sort_by_time).close()
         except PhasegaugeError as err:
