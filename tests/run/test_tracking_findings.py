@@ -103,3 +103,26 @@ def test_drops_growing_by_condensation_are_not_warned_of(tmp_path):
     res = measure(write_listing(tmp_path, series), "c", analyses=("droplets",))
     assert res.droplets.groupby("track")["volume"].agg(lambda v: v.iloc[1] / v.iloc[0]).min() > 1.8
     assert "tracking_unreliable" not in [f.kind for f in res.findings]
+
+
+def test_a_track_that_takes_a_smaller_drop_while_its_own_appears_anew(tmp_path):
+    # drops of radius 4 and 8 cells 20 apart, both moving 20 cells a step: the big drop's track lands on
+    # the small drop (4x smaller) and the big drop comes out as a new track with the volume it had
+    path, counts = _row_of_drops(tmp_path, shift=20, steps=2, drops=((30, 4), (50, 8)))
+    res = measure(path, "c", analyses=("droplets",))
+    assert list(res.steps["droplet_count"]) == counts
+    finding = next(f for f in res.findings if f.kind == "tracking_unreliable")
+    assert finding.figures["largest_factor"] == pytest.approx(4.0, rel=0.1)
+
+
+def test_event_track_lists_read_back_from_csv_are_ids():
+    # pandas reads a column of single ids (and empty cells) as floats: "2.0" is track 2
+    import io
+
+    import pandas as pd
+
+    from phasegauge.run._tracking_findings import _track_ids
+
+    events = pd.read_csv(io.StringIO("step,after\n1,2\n2,\n"))
+    assert [_track_ids(a) for a in events["after"]] == [[2], []]
+    assert _track_ids("3 12") == [3, 12]

@@ -3,10 +3,10 @@
 Tracks link each step's droplets to the previous step's by the overlap of their cells (moved by the
 velocity where one is given) and, for those overlapping nothing, by the nearest centroid within a
 diameter. When drops move about their own size or more between outputs, without a velocity, a drop's
-cells overlap the drop behind it instead: tracks swap drops (one track grows by a large factor to the
-volume another track had the step before, while that one shrinks, with no event: drops growing by
-condensation or coarsening, or dissolving, change volume too, but do not hand it over), or a drop is
-written as a disappearance and an appearance of the same volume in one step.
+cells overlap the drop behind it instead: a track hands its drop over (it shrinks by a large factor,
+with no event, while the volume it held turns up on another track that grew as much, or as a new
+drop: drops growing by condensation or coarsening, or dissolving, change volume too, but do not hand
+it over), or a drop is written as a disappearance and an appearance of the same volume in one step.
 """
 
 from __future__ import annotations
@@ -15,8 +15,8 @@ import numpy as np
 
 __all__ = ["tracking_findings", "JUMP_FACTOR", "SAME_VOLUME"]
 
-#: a one-to-one link whose volume grows by this factor or more to what another track that shrank as
-#: much held the step before, with no event, looks like a swap of drops (our threshold)
+#: a one-to-one link whose volume shrinks by this factor or more, with no event, while what it held
+#: turns up on a track that grew as much or as an appearance, looks like a drop handed over (our threshold)
 JUMP_FACTOR = 1.5
 #: a disappearance and an appearance in one step whose volumes agree within this share look like one
 #: drop that moved beyond the gate (our threshold)
@@ -33,16 +33,17 @@ def tracking_findings(droplets, events, options, bounds=None, steps=None) -> lis
 
     if droplets is None or not len(droplets) or "track" not in droplets:
         return []
-    jumps = _jumps(droplets, events, bounds, _rescaled(steps))
+    appeared = _appearances(droplets, events, bounds)
+    jumps = _jumps(droplets, events, bounds, _rescaled(steps), appeared)
     pairs = _vanished_and_appeared(droplets, events, bounds)
     if not jumps and not pairs:
         return []
     parts = []
     if jumps:
         factor, time = max(jumps)
-        parts.append(f"{len(jumps)} track(s) grow by a factor of {JUMP_FACTOR:g} or more to the volume (within "
-                     f"{100 * SAME_VOLUME:g} %) that another track, shrinking as much, held the step before, with "
-                     f"no event (largest {factor:.3g} at t = {time:g})")
+        parts.append(f"{len(jumps)} track(s) shrink by a factor of {JUMP_FACTOR:g} or more while the volume they "
+                     f"held (within {100 * SAME_VOLUME:g} %) turns up on another track or as a new drop, with no "
+                     f"event (largest factor {factor:.3g} at t = {time:g})")
     if pairs:
         parts.append(f"{len(pairs)} drop(s) disappear as another of the same volume (within "
                      f"{100 * SAME_VOLUME:g} %) appears in the same step (first at t = {min(pairs):g})")
@@ -66,8 +67,17 @@ def _in_events(events) -> set:
 
 
 def _track_ids(text) -> list:
-    """The track ids of an event's ``before`` or ``after`` (space-separated; empty or NaN: none)."""
-    return [int(t) for t in str(text).split() if t.isdigit()]
+    """The track ids of an event's ``before`` or ``after`` (space-separated; empty or NaN: none; a single
+    id read back from CSV as a float, ``2.0``, is id 2)."""
+    ids = []
+    for token in str(text).split():
+        try:
+            value = float(token)
+        except ValueError:
+            continue
+        if np.isfinite(value) and value == int(value):
+            ids.append(int(value))
+    return ids
 
 
 def _rescaled(steps) -> set:
@@ -81,10 +91,11 @@ def _rescaled(steps) -> set:
     return {int(k) for k in steps["step"].to_numpy()[1:][moved]}
 
 
-def _jumps(droplets, events, bounds=None, rescaled=frozenset()) -> list:
-    """(factor, time) of each one-to-one link between consecutive steps whose volume grows by
-    :data:`JUMP_FACTOR` or more to what a track shrinking as much held the step before, the drop named in no event of the later step, resolved and clear of
-    the domain's boundary at both."""
+def _jumps(droplets, events, bounds=None, rescaled=frozenset(), appeared=None) -> list:
+    """(factor, time) of each one-to-one link between consecutive steps whose volume shrinks by
+    :data:`JUMP_FACTOR` or more while what it held turns up (within :data:`SAME_VOLUME`) on a track
+    growing as much or as one of ``appeared`` (step -> appearance volumes); the drop named in no event
+    of the later step, resolved and clear of the domain's boundary at both."""
     steps = np.unique(droplets["step"].to_numpy())
     following = dict(zip(steps[:-1], steps[1:]))
     table = droplets[["step", "time", "track", "volume"]].copy()
@@ -108,10 +119,35 @@ def _jumps(droplets, events, bounds=None, rescaled=frozenset()) -> list:
     for (step, time), links in linked.groupby(["next_step", "next_time"]):
         ratio = links["next_volume"].to_numpy() / links["volume"].to_numpy()
         handed = links["volume"].to_numpy()[ratio <= 1.0 / JUMP_FACTOR]  # what the shrinking tracks held
-        for factor, new in zip(ratio, links["next_volume"].to_numpy()):
-            if factor >= JUMP_FACTOR and handed.size and np.min(np.abs(handed - new)) <= SAME_VOLUME * new:
-                out.append((float(factor), float(time)))
+        # where the shrinking tracks' drops went: another track, or a new one (an appearance)
+        taken = np.concatenate([links["next_volume"].to_numpy()[ratio >= JUMP_FACTOR],
+                                np.asarray((appeared or {}).get(int(step), []), dtype=float)])
+        for held, factor in zip(handed, ratio[ratio <= 1.0 / JUMP_FACTOR]):
+            if taken.size and np.min(np.abs(taken - held)) <= SAME_VOLUME * held:
+                out.append((float(1.0 / factor), float(time)))
     return out
+
+
+def _appearances(droplets, events, bounds=None) -> dict:
+    """Step -> the volumes of that step's appearances of resolved drops clear of the domain's boundary."""
+    if events is None or not len(events):
+        return {}
+    edge = _edge_tracks(droplets, bounds)
+    out = {}
+    for kind, step, after, volume in zip(events["kind"], events["step"], events["after"], events["volume_after"]):
+        if kind == "appearance" and not any((int(step), t) in edge for t in _track_ids(after)):
+            out.setdefault(int(step), []).append(float(volume))
+    return out
+
+
+def _edge_tracks(droplets, bounds=None) -> set:
+    """(step, track) of the drops flagged under-resolved and, with ``bounds``, those touching the domain's box."""
+    edge = np.zeros(len(droplets), dtype=bool)
+    if bounds is not None:
+        edge |= _touches(droplets, np.asarray(bounds, dtype=float))
+    if "under_resolved" in droplets:  # specks of a few cells come and go with equal volumes
+        edge |= droplets["under_resolved"].astype(bool).to_numpy()
+    return set(zip(droplets["step"].to_numpy()[edge], droplets["track"].to_numpy()[edge]))
 
 
 def _touches(droplets, bounds: np.ndarray) -> np.ndarray:
@@ -134,12 +170,7 @@ def _vanished_and_appeared(droplets, events, bounds=None) -> list:
         return []
     steps = np.unique(droplets["step"].to_numpy())
     before = dict(zip(steps[1:], steps[:-1]))
-    edge = np.zeros(len(droplets), dtype=bool)
-    if bounds is not None:
-        edge |= _touches(droplets, np.asarray(bounds, dtype=float))
-    if "under_resolved" in droplets:  # specks of a few cells come and go with equal volumes
-        edge |= droplets["under_resolved"].astype(bool).to_numpy()
-    edge = set(zip(droplets["step"].to_numpy()[edge], droplets["track"].to_numpy()[edge]))
+    edge = _edge_tracks(droplets, bounds)
 
     def clear(step, tracks) -> bool:
         return not any((step, t) in edge for t in _track_ids(tracks))
