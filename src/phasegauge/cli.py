@@ -250,7 +250,8 @@ def measure(path, field, value_range, phase, level, velocity, field_location, so
         section_positions=_floats(section_positions, "--section-positions"), mixing_target=mixing_target,
         segregation_scale=segregation_scale,
         drift_tolerance=drift_tolerance, strict=strict, field_location=field_location or "auto",
-        sort_by_time=sort_by_time, keep_3d=keep_3d, level_set=level_set, steps=steps, time_from=time_from, time_to=time_to, every=every,
+        sort_by_time=sort_by_time, keep_3d=keep_3d, level_set=level_set, steps=steps, time_from=time_from,
+        time_to=time_to, every=every,
         free_energy=free_energy, coarsening=coarsening,
         **_point_options(probe_file, line_file, measured_file), **_mixture_values(**mixture))
     result = run_measure(path, options=options, out=out, workers=workers, threads=threads, scheduler=scheduler,
@@ -349,7 +350,8 @@ def equilibrium(model_file, temperature, temperatures, count, as_json, out, over
             if len(record["two_phase_regions"]) > 1:  # the pairs above are the widest and the outermost
                 shown = ", ".join(f"{a:.4g} to {b:.4g}" for a, b in record["two_phase_regions"])
                 click.echo(f"  note: {len(record['two_phase_regions'])} two-phase regions: {shown} (the binodal "
-                           "above is the widest; a run's steps are measured against the one their mean composition lies in)")
+                           "above is the widest; a run's steps are measured against the one their mean composition "
+                           "lies in)")
                 shown = ", ".join(f"{a:.4g} to {b:.4g}" for a, b in record["unstable_ranges"])
                 click.echo(f"  note: unstable ranges: {shown} (the spinodal above spans them and the stable gap "
                            "between)")

@@ -105,7 +105,8 @@ def test_the_phase_diagram_lists_the_second_region(tmp_path):
 
     model, _, bridges, _ = _reference()
     out = tmp_path / "pd"
-    result = CliRunner().invoke(main, ["equilibrium", MODEL, "--temperatures", "90,110", "--count", "3", "-o", str(out)])
+    result = CliRunner().invoke(main, ["equilibrium", MODEL, "--temperatures", "90,110", "--count", "3",
+                                       "-o", str(out)])
     assert result.exit_code == 0, result.output
     record = json.loads((out / "phase_diagram.json").read_text())
     at_100 = [r for r in record["other_two_phase_regions"] if r["temperature"] == 100.0]

@@ -335,7 +335,8 @@ def test_a_run_in_the_second_two_phase_region_is_measured_against_it(tmp_path):
     path = _slab_series(tmp_path, [(lean, rich)], n=400)
     res = measure(path, "x", model=model, temperature=100.0, analyses=("interface",), level=0.5 * (lean + rich))
     step = res.steps.iloc[0]
-    assert step["binodal_lean"] == pytest.approx(lean, abs=1e-5) and step["binodal_rich"] == pytest.approx(rich, abs=1e-5)
+    assert step["binodal_lean"] == pytest.approx(lean, abs=1e-5)
+    assert step["binodal_rich"] == pytest.approx(rich, abs=1e-5)
     assert step["interface_width"] == pytest.approx(2 * np.log(19.0) * EPS, rel=0.03)  # between the plateaus
     assert step["separated"] and step["equilibrium_gap"] < 2e-3
     assert "binodal_reached" in [f.kind for f in res.findings]

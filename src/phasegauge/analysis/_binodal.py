@@ -336,7 +336,8 @@ def other_regions(model, temperature: float, lean: float, rich: float) -> list:
                                _logit(np.array([s_a])), _logit(np.array([s_b])))
         # Newton's own test (isoactivity to 1e-11) can fail near a pure component where it has found the
         # pair: taken too when it stays within a grid spacing of the bridge and is a common tangent
-        near = np.isfinite(xa[0]) and np.isfinite(xb[0]) and abs(xa[0] - a) < _REFINE_STEP and abs(xb[0] - b) < _REFINE_STEP
+        near = (np.isfinite(xa[0]) and np.isfinite(xb[0])
+                and abs(xa[0] - a) < _REFINE_STEP and abs(xb[0] - b) < _REFINE_STEP)
         if (done[0] or near) and xb[0] - xa[0] > MIN_REGION and _tangent_gap(model, one, xa, xb)[0] > -1e-9:
             a, b = xa[0], xb[0]
         found.append((float(a), float(b)))

@@ -163,8 +163,8 @@ def _facing_cut(tree, face_normals, buckets, at, own, reach, lateral) -> np.ndar
     radius = float(np.hypot(lateral, 0.5 * reach / m))
     cut = np.zeros(at.shape[0], dtype=bool)
     per = max(1, _CHUNK // along.size)
-    for lo in range(0, at.shape[0], per):
-        p, n = at[lo:lo + per], own[lo:lo + per]
+    for start in range(0, at.shape[0], per):
+        p, n = at[start:start + per], own[start:start + per]
         points = (p[:, None, :] + along[None, :, None] * n[:, None, :]).reshape(-1, at.shape[1])
         kept = np.flatnonzero(_lower_bound(points, buckets) <= radius)
         element, face = _faces_within(tree, points[kept], radius)
@@ -174,7 +174,7 @@ def _facing_cut(tree, face_normals, buckets, at, own, reach, lateral) -> np.ndar
         square = np.einsum("ij,ij->i", offset, offset)
         facing = np.abs(np.einsum("ij,ij->i", face_normals[face], n[element])) >= _FACING
         counts = (square < reach ** 2) & (square - on_line ** 2 <= lateral ** 2) & facing
-        cut[lo + element[counts]] = True
+        cut[start + element[counts]] = True
     return cut
 
 

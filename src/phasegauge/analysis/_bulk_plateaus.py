@@ -84,16 +84,16 @@ def bulk_plateaus(c_point: np.ndarray, level: float, mesh=None) -> tuple[float, 
                 break
             g = median
         spread = 1.4826 * float(np.median(np.abs(near - g)))
+        # flat (moved little from the extreme) and clear of the ideal by three spreads
+        strict = abs(g - extreme) <= 0.01 and abs(g - ideal) > 3.0 * spread
+        # a noisy bulk holding most of its side, off its ideal by more than three spreads, is a plateau
+        # even where it moved more (a Cahn-Hilliard matrix at 0.03 +- 0.005 while coarsening)
+        noisy = (near.size >= 0.5 * side.size and abs(g - ideal) > max(3.0 * spread, PLATEAU_TOLERANCE)
+                 and abs(g - extreme) <= max(0.01, 3.0 * spread))
         # beyond 0.25 of the ideal, a plateau must hold a fifth of its side (a bulk, as a partially
         # miscible pair's phases sit at 0.3 and 0.7; not the top of a drop that never reached its bulk)
-        far = abs(g - ideal) > 0.25
-        if far and not (abs(g - extreme) > 0.01 or abs(g - ideal) <= 3.0 * spread):
-            far = not _holds(side, g, mesh, mask, finite)
-        # a noisy bulk holding most of its side, off its ideal by more than three spreads, is a plateau
-        # even where the strict tests fail (a Cahn-Hilliard matrix at 0.03 +- 0.005 while coarsening)
-        noisy = (near.size >= 0.5 * side.size and abs(g - ideal) > max(3.0 * spread, PLATEAU_TOLERANCE)
-                 and abs(g - extreme) <= max(0.01, 3.0 * spread) and not far)
-        if not noisy and (abs(g - extreme) > 0.01 or far or abs(g - ideal) <= 3.0 * spread):
+        held = abs(g - ideal) <= 0.25 or (strict and _holds(side, g, mesh, mask, finite))
+        if not (held and (strict or noisy)):
             # no plateau on this side (the inside of a thin filament, a profile still
             # approaching its ideal value): the ideal value
             plateaus.append(ideal)

@@ -5,7 +5,7 @@ stretches and squeezes it, and a solver reinitialises phi to restore the slope. 
 drifted, what rests on phi being a distance (curvature from its second derivatives, a narrow band of
 a few cells, the smoothed Heaviside of surface tension) is off, while the zero contour and the phase
 volumes still hold. The interface of a level-set run has no width of its own: the width columns are
-empty (NaN) and the numerical-diffusion audit is not made.
+empty (NaN), the width estimators are not run, and the numerical-diffusion audit is not made.
 """
 
 from __future__ import annotations
@@ -17,33 +17,36 @@ from ..model.corners import cell_gradient, corner_extremes
 from ..model.mesh import Mesh
 from ._interface_width import METRIC_KEYS
 
-__all__ = ["level_set_metrics", "LEVEL_SET_COLUMNS", "NEAR_CELLS"]
+__all__ = ["level_set_widths", "distance_errors", "LEVEL_SET_COLUMNS", "NEAR_CELLS"]
 
 #: steps.csv columns of a level-set run
 LEVEL_SET_COLUMNS = ("distance_error_median", "distance_error_p90")
 #: the slope is judged on cells with a corner within this many of their own sizes of the interface
 NEAR_CELLS = 2.0
-#: width columns kept on a level-set run (the contour's size; the bulk values are 0 and 1 by construction)
-_KEPT = ("interface_size", "bulk_c_low", "bulk_c_high")
 
 
-def level_set_metrics(mesh: Mesh, phi_point: np.ndarray) -> dict:
-    """The width columns emptied (NaN) and ``distance_error_median``, ``distance_error_p90``: the
-    volume-weighted median and 90th percentile of | |grad phi| - 1 | over the cells that have a corner
-    within :data:`NEAR_CELLS` of their own sizes (measure^(1/dim)) of phi = 0 (the gradient by least
-    squares over each cell's corners: exact for linear phi on simplices). 0 for an exact distance
-    function resolved by the mesh; NaN without such cells."""
-    out = {key: float("nan") for key in METRIC_KEYS if key not in _KEPT}
+def level_set_widths(size: float, low: float, high: float) -> dict:
+    """The width columns of a level-set step (:data:`METRIC_KEYS`, in that order): the contour's ``size``
+    and the bulk values ``low``, ``high`` (0 and 1 by construction); the widths empty (NaN)."""
+    out = {key: float("nan") for key in METRIC_KEYS}
+    out.update(interface_size=float(size), bulk_c_low=float(low), bulk_c_high=float(high))
+    return out
+
+
+def distance_errors(mesh: Mesh, phi_point: np.ndarray) -> dict:
+    """``distance_error_median``, ``distance_error_p90``: the volume-weighted median and 90th percentile
+    of | |grad phi| - 1 | over the cells that have a corner within :data:`NEAR_CELLS` of their own sizes
+    (measure^(1/dim)) of phi = 0 (the gradient by least squares over each cell's corners: exact for
+    linear phi on simplices). 0 for an exact distance function resolved by the mesh; NaN without such
+    cells."""
     phi = np.asarray(phi_point, dtype=np.float64)
     size = mesh.cell_measures ** (1.0 / mesh.dimension)
     near = np.flatnonzero(corner_extremes(mesh, np.abs(phi)).low <= NEAR_CELLS * size)
     if near.size == 0:
-        out.update(distance_error_median=float("nan"), distance_error_p90=float("nan"))
-        return out
+        return {"distance_error_median": float("nan"), "distance_error_p90": float("nan")}
     error = np.abs(np.linalg.norm(cell_gradient(mesh, phi, cells=near), axis=1) - 1.0)
     weights = mesh.cell_measures[near]
     keep = np.isfinite(error)
     median, p90 = (weighted_quantile(error[keep], weights[keep], q) if keep.any() else float("nan")
                    for q in (0.5, 0.9))
-    out.update(distance_error_median=float(median), distance_error_p90=float(p90))
-    return out
+    return {"distance_error_median": float(median), "distance_error_p90": float(p90)}

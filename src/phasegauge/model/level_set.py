@@ -24,9 +24,9 @@ __all__ = ["level_set_indicator", "level_set_points"]
 def level_set_points(mesh: Mesh, phi_cell: np.ndarray) -> np.ndarray:
     """Point values of a level set given on cells: the least-squares linear fit through the cells around
     each point without its limiter, and where that is ill-posed (a boundary point whose cells' centroids
-    lie in a line, as along a wall of a structured mesh) the fit through the cells two rings out. Both
-    are exact for a linear phi, so phi's sign change in the row of cells at a wall is kept. NaN cells are
-    left out."""
+    lie in a line, as along a wall of a structured mesh) the fit through the cells two rings out (the
+    mean of the cells around it where even that is ill-posed). Both fits are exact for a linear phi, so
+    phi's sign change in the row of cells at a wall is kept. NaN cells are left out."""
     from ._conversions import good_cells_fit, linear_point_values, point_fit
 
     phi = np.asarray(phi_cell, dtype=np.float64)
@@ -37,8 +37,9 @@ def level_set_points(mesh: Mesh, phi_cell: np.ndarray) -> np.ndarray:
     posed = np.zeros(mesh.n_points, dtype=bool)
     posed[fit.points[fit.posed]] = True
     bad = np.flatnonzero(~posed)
-    if bad.size:
-        out[bad] = _two_ring_values(mesh, phi, good, bad)
+    if bad.size:  # (the corners' mean where even two rings are ill-posed)
+        ring = _two_ring_values(mesh, phi, good, bad)
+        out[bad] = np.where(np.isfinite(ring), ring, mean[bad])
     return out
 
 

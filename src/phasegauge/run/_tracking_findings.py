@@ -33,9 +33,10 @@ def tracking_findings(droplets, events, options, bounds=None, steps=None) -> lis
 
     if droplets is None or not len(droplets) or "track" not in droplets:
         return []
-    appeared = _appearances(droplets, events, bounds)
-    jumps = _jumps(droplets, events, bounds, _rescaled(steps), appeared)
-    pairs = _vanished_and_appeared(droplets, events, bounds)
+    edge = _edge_tracks(droplets, bounds)
+    appeared = _appearances(events, edge)
+    jumps = _jumps(droplets, events, edge, _rescaled(steps), appeared)
+    pairs = _vanished_and_appeared(droplets, events, edge, appeared)
     if not jumps and not pairs:
         return []
     parts = []
@@ -91,27 +92,23 @@ def _rescaled(steps) -> set:
     return {int(k) for k in steps["step"].to_numpy()[1:][moved]}
 
 
-def _jumps(droplets, events, bounds=None, rescaled=frozenset(), appeared=None) -> list:
+def _jumps(droplets, events, edge: set, rescaled: set, appeared: dict) -> list:
     """(factor, time) of each one-to-one link between consecutive steps whose volume shrinks by
     :data:`JUMP_FACTOR` or more while what it held turns up (within :data:`SAME_VOLUME`) on a track
     growing as much or as one of ``appeared`` (step -> appearance volumes); the drop named in no event
-    of the later step, resolved and clear of the domain's boundary at both."""
+    of the later step and in neither step among ``edge`` (:func:`_edge_tracks`)."""
     steps = np.unique(droplets["step"].to_numpy())
     following = dict(zip(steps[:-1], steps[1:]))
-    table = droplets[["step", "time", "track", "volume"]].copy()
-    left_out = np.zeros(len(droplets), dtype=bool)
-    if "under_resolved" in droplets:
-        left_out |= droplets["under_resolved"].astype(bool).to_numpy()
-    if bounds is not None:
-        left_out |= _touches(droplets, np.asarray(bounds, dtype=float))
-    gone = set(zip(droplets["step"].to_numpy()[left_out], droplets["track"].to_numpy()[left_out]))
-    table = table[~left_out]
-    table = table.groupby(["step", "track"], as_index=False).agg(time=("time", "first"), volume=("volume", "sum"))
+    table = droplets[["step", "time", "track", "volume"]]
+    left_out = np.fromiter(((s, t) in edge for s, t in zip(table["step"], table["track"])), dtype=bool,
+                           count=len(table))
+    table = table[~left_out].groupby(["step", "track"], as_index=False).agg(time=("time", "first"),
+                                                                            volume=("volume", "sum"))
     table["next_step"] = table["step"].map(following)
     later = table[["step", "track", "volume", "time"]].rename(
         columns={"step": "next_step", "volume": "next_volume", "time": "next_time"})
     linked = table.merge(later, on=["next_step", "track"])
-    named = _in_events(events) | gone
+    named = _in_events(events) | edge
     keep = [not ((int(r.next_step), int(r.track)) in named or int(r.next_step) in rescaled)
             and r.volume > 0 and r.next_volume > 0 for r in linked.itertuples(index=False)]
     linked = linked[np.asarray(keep, dtype=bool)] if len(linked) else linked
@@ -121,18 +118,17 @@ def _jumps(droplets, events, bounds=None, rescaled=frozenset(), appeared=None) -
         handed = links["volume"].to_numpy()[ratio <= 1.0 / JUMP_FACTOR]  # what the shrinking tracks held
         # where the shrinking tracks' drops went: another track, or a new one (an appearance)
         taken = np.concatenate([links["next_volume"].to_numpy()[ratio >= JUMP_FACTOR],
-                                np.asarray((appeared or {}).get(int(step), []), dtype=float)])
+                                np.asarray(appeared.get(int(step), []), dtype=float)])
         for held, factor in zip(handed, ratio[ratio <= 1.0 / JUMP_FACTOR]):
             if taken.size and np.min(np.abs(taken - held)) <= SAME_VOLUME * held:
                 out.append((float(1.0 / factor), float(time)))
     return out
 
 
-def _appearances(droplets, events, bounds=None) -> dict:
-    """Step -> the volumes of that step's appearances of resolved drops clear of the domain's boundary."""
+def _appearances(events, edge: set) -> dict:
+    """Step -> the volumes of that step's appearances of drops not among ``edge`` (:func:`_edge_tracks`)."""
     if events is None or not len(events):
         return {}
-    edge = _edge_tracks(droplets, bounds)
     out = {}
     for kind, step, after, volume in zip(events["kind"], events["step"], events["after"], events["volume_after"]):
         if kind == "appearance" and not any((int(step), t) in edge for t in _track_ids(after)):
@@ -162,26 +158,20 @@ def _touches(droplets, bounds: np.ndarray) -> np.ndarray:
     return touches
 
 
-def _vanished_and_appeared(droplets, events, bounds=None) -> list:
-    """Times of the steps where a disappearance and an appearance have volumes within :data:`SAME_VOLUME`,
-    drops flagged under-resolved left out, and with ``bounds`` drops that leave or enter at the domain's
-    boundary (an outlet and an inlet of equal drops)."""
+def _vanished_and_appeared(droplets, events, edge: set, appeared: dict) -> list:
+    """Times of the steps where a disappearance and one of ``appeared`` (:func:`_appearances`) have volumes
+    within :data:`SAME_VOLUME`, the drops among ``edge`` left out (an outlet and an inlet of equal drops;
+    specks of a few cells)."""
     if events is None or not len(events):
         return []
     steps = np.unique(droplets["step"].to_numpy())
     before = dict(zip(steps[1:], steps[:-1]))
-    edge = _edge_tracks(droplets, bounds)
-
-    def clear(step, tracks) -> bool:
-        return not any((step, t) in edge for t in _track_ids(tracks))
-
     times = []
     for (step, time), group in events.groupby(["step", "time"]):
         last = before.get(step)
-        gone = np.array([v for kind, b, v in zip(group["kind"], group["before"], group["volume_before"])
-                         if kind == "disappearance" and clear(last, b)], dtype=float)
-        new = np.array([v for kind, a, v in zip(group["kind"], group["after"], group["volume_after"])
-                        if kind == "appearance" and clear(step, a)], dtype=float)
+        gone = [v for kind, b, v in zip(group["kind"], group["before"], group["volume_before"])
+                if kind == "disappearance" and not any((last, t) in edge for t in _track_ids(b))]
+        new = np.asarray(appeared.get(int(step), []), dtype=float)
         for volume in gone:
             if volume > 0 and new.size and np.min(np.abs(new - volume)) <= SAME_VOLUME * volume:
                 times.append(float(time))

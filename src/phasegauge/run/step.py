@@ -214,9 +214,9 @@ def analyse_step(step, options, *, contour_dir: str | None = None, reported_mesh
         contour, measured = _phase_analyses(step, mesh, ind, options, result, m, (u_cell, u_point, u_location),
                                             contour_dir, inner)
     if options.level_set and "interface" in options.analyses:  # no width of its own: its slope instead
-        from ..analysis._level_set import level_set_metrics
+        from ..analysis._level_set import distance_errors
 
-        m.update(level_set_metrics(mesh, ind.level_set))
+        m.update(distance_errors(mesh, ind.level_set))
     if "mixing" in options.analyses:
         m.update(mixing.mixing_metrics(mesh, ind.cell, box=options.box))
         if options.segregation_scale:
@@ -286,10 +286,11 @@ def _phase_analyses(step, mesh, ind, options, result, m: dict, velocity: tuple, 
     # the contour and the measured bulk values of the two phases (the widths and the droplets are
     # taken between them); with threads to spare, work beside (nothing there warns): the contour
     # beside the widths' band integrals, or the bulk values beside the contour
-    if "interface" in options.analyses:
+    widths = "interface" in options.analyses and not options.level_set  # a level set has none
+    if widths:
         prepared = interface.prepare_widths(mesh, ind, level=options.level, threads=threads)
         contour, plateaus = prepared.contour, prepared.plateaus
-    elif "droplets" in options.analyses:
+    elif {"interface", "droplets"} & set(options.analyses):
         bulk = Beside(interface.bulk_plateaus, ind.point, options.level, mesh) if threads >= 2 else None
         with bulk or nullcontext():
             contour = interface.find_interface(mesh, ind.point, level=options.level)
@@ -298,20 +299,24 @@ def _phase_analyses(step, mesh, ind, options, result, m: dict, velocity: tuple, 
     if "droplets" in options.analyses and "interface" in options.analyses and threads >= 2:
         labels = Beside(_label_droplets, mesh, ind, options, u_cell, contour, plateaus)
     with labels or nullcontext():
-        if "interface" in options.analyses:
+        if widths:
             # a mixture run keeps the distances the widths measured: its bulk cells need few more
-            widths = interface.interface_metrics(mesh, ind, level=options.level, prepared=prepared,
-                                                 return_distances=options.model is not None, threads=threads,
-                                                 periodic=tuple(options.periodic))
+            metrics = interface.interface_metrics(mesh, ind, level=options.level, prepared=prepared,
+                                                  return_distances=options.model is not None, threads=threads,
+                                                  periodic=tuple(options.periodic))
             prepared = None  # the band integrals and values between the bulk values: not held further
             if options.model is not None:
-                widths, measured = widths
-            m.update(widths)
-            if contour_dir is not None:
-                from ..io import write_contour
+                metrics, measured = metrics
+            m.update(metrics)
+        elif "interface" in options.analyses:  # a level set: its contour's size (its slope is measured after)
+            from ..analysis._level_set import level_set_widths
 
-                write_contour(contour, os.path.join(contour_dir, f"interface_{step.index:06d}.vtu"),
-                              time=step.time, step=step.index)
+            m.update(level_set_widths(np.sum(contour.element_sizes), plateaus[0], plateaus[1]))
+        if "interface" in options.analyses and contour_dir is not None:
+            from ..io import write_contour
+
+            write_contour(contour, os.path.join(contour_dir, f"interface_{step.index:06d}.vtu"),
+                          time=step.time, step=step.index)
     if "droplets" in options.analyses:
         found = _label_droplets(mesh, ind, options, u_cell, contour, plateaus) if labels is None else labels.result()
         table = found.table
