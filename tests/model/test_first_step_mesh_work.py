@@ -5,6 +5,7 @@ import numpy as np
 import pytest
 
 from phasegauge import meshgen
+from phasegauge.model._faces import face_rows, row_owners
 from phasegauge.model._places import coincident_points as _coincident_points
 
 KINDS_2D = ["triangle", "quad", "mixed", "polygon"]
@@ -80,9 +81,9 @@ def test_face_owner_arithmetic_is_64_bit():
     from phasegauge.meshgen import grid_mesh
 
     mesh = grid_mesh((3, 3, 3), kind="tetra")
-    _, row_starts = mesh._face_rows()
+    _, row_starts = face_rows(mesh)
     rows = np.arange(8, dtype=np.int32)
-    assert mesh._row_owners(rows, row_starts).dtype == np.int64
+    assert row_owners(mesh, rows, row_starts).dtype == np.int64
 
 
 def _exact_repeats(conn):

@@ -13,6 +13,7 @@ import pytest
 
 from phasegauge.model import _geometry, _grouping, cells
 from phasegauge.model import _places
+from phasegauge.model._faces import local_faces
 from phasegauge.model.mesh import Mesh
 from phasegauge.meshgen import grid_mesh, to_meshio
 
@@ -295,7 +296,7 @@ def _reference_pairs(m):
     """Face pairs by numpy alone: sorted corner rows grouped by np.unique, pairs by np.unique."""
     rows, owners = [], []
     for block, start in zip(m.blocks, m.block_offsets[:-1]):
-        for face in m._local_faces(block):
+        for face in local_faces(block):
             f = np.full((len(block), 4), -1, dtype=np.int64)
             f[:, 4 - len(face):] = np.sort(block.connectivity[:, list(face)], axis=1)
             rows.append(f)
@@ -344,7 +345,7 @@ def _reference_topology(m):
     rows, owners = [], []
     width = 4 if m.dimension == 3 else 2
     for block, start in zip(m.blocks, m.block_offsets[:-1]):
-        for face in m._local_faces(block):
+        for face in local_faces(block):
             f = np.full((len(block), width), -1, dtype=np.int64)
             f[:, width - len(face):] = np.sort(block.connectivity[:, list(face)], axis=1)
             rows.append(f)
@@ -374,7 +375,7 @@ def test_face_topology_against_numpy_unique(kind):
     numbers = m.face_numbers()
     row = 0
     for block, ids in zip(m.blocks, numbers):
-        local = len(m._local_faces(block))
+        local = len(local_faces(block))
         expected = inverse[row:row + local * len(block)].reshape(local, len(block)).T
         row += local * len(block)
         if block.cell_type in ("hexahedron", "wedge", "pyramid"):

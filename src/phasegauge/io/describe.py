@@ -153,6 +153,7 @@ def _describe(series, scan: str) -> dict:
         "regular_grid": (list(mesh.regular_grid.cell_shape) if mesh.regular_grid is not None else None),
         "cell_size": {"min": float(sizes.min()), "median": float(np.median(sizes)),
                       "max": float(sizes.max())},
+        "hanging_faces": mesh.hanging_faces,
         "inverted_cells": int(mesh.inverted_cells),
         "degenerate_cells": int(mesh.degenerate_cells),
         "mesh_changes": len(meshes) > 1,
@@ -241,6 +242,10 @@ def format_description(desc: dict) -> str:
     word = "area" if desc["dimension"] == 2 else "volume"
     lines.append(f"domain      {word} {desc['total_measure']:.6g}; cell size min {cs['min']:.4g}, "
                  f"median {cs['median']:.4g}, max {cs['max']:.4g}")
+    if desc.get("hanging_faces"):
+        faces = "edges" if desc["dimension"] == 2 else "faces"
+        lines.append(f"hanging     {desc['hanging_faces']} {faces} lie on parts of larger {faces} (hanging nodes of a "
+                     "refined mesh): measure joins the cells across them")
     if desc["inverted_cells"] or desc["degenerate_cells"]:
         lines.append(f"warning     {desc['inverted_cells']} inverted and {desc['degenerate_cells']} "
                      "zero-size cells")

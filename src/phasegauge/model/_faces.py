@@ -125,6 +125,7 @@ def face_topology(mesh: Mesh, *, threads: int = 1) -> dict:
     shared = starts[sizes == 2]
     pairs, shared_faces = _cell_pairs(mesh, order[shared], order[shared + 1], row_starts, threads=threads)
     del shared
+    boundary, pairs, hanging = _joined_at_hanging_faces(mesh, boundary, pairs)
     # face numbers of the cells that have quad faces (split by the contouring); others None
     numbers = [None] * len(mesh.blocks)
     quads = [b for b, block in enumerate(mesh.blocks) if block.cell_type in ("hexahedron", "wedge", "pyramid")]
@@ -139,7 +140,28 @@ def face_topology(mesh: Mesh, *, threads: int = 1) -> dict:
             ids = group[row_starts[b]:row_starts[b] + local * n].reshape(local, n)
             numbers[b] = np.ascontiguousarray(ids.T)
     return {"pairs": pairs, "pair_count": int(pairs.shape[0]), "boundary": boundary, "numbers": numbers,
-            "count": int(starts.size), "crowded": int(np.count_nonzero(sizes > 2)), "shared_faces": shared_faces}
+            "count": int(starts.size), "crowded": int(np.count_nonzero(sizes > 2)),
+            "shared_faces": shared_faces + hanging, "hanging_faces": hanging}
+
+
+def _joined_at_hanging_faces(mesh: Mesh, boundary: tuple, pairs: np.ndarray) -> tuple:
+    """The boundary faces without those of refinement seams, the pairs with the cells joined across
+    them (:func:`._hanging_faces.hanging_face_links`), and how many smaller faces were joined (0: all unchanged)."""
+    from ._hanging_faces import hanging_face_links
+
+    corners, owners = boundary
+    links = hanging_face_links(mesh, corners, owners)
+    if links is None:
+        return boundary, pairs, 0
+    small, large, covered = links
+    a, b = owners[small], owners[large]
+    n = np.int64(mesh.n_cells)
+    keys = np.concatenate([pairs[:, 0].astype(np.int64) * n + pairs[:, 1],
+                           np.minimum(a, b).astype(np.int64) * n + np.maximum(a, b)])
+    keys = unique_ints(keys)
+    joined = np.empty((keys.size, 2), dtype=pairs.dtype)
+    joined[:, 0], joined[:, 1] = np.divmod(keys, n)
+    return (corners[~covered], owners[~covered]), joined, int(small.size)
 
 
 def _cell_pairs(mesh: Mesh, first: np.ndarray, second: np.ndarray, row_starts: np.ndarray, *,
@@ -253,7 +275,7 @@ def split_face_topology(mesh: Mesh, neighbours: np.ndarray) -> dict:
     boundary = (corners[order], lone[order])
     # the pairs are not kept (8 bytes a pair): :func:`face_pairs` reads them from the neighbours
     return {"pairs": None, "pair_count": n_pairs, "boundary": boundary, "numbers": [None],
-            "count": n_pairs + int(lone.size), "crowded": 0, "shared_faces": n_pairs}
+            "count": n_pairs + int(lone.size), "crowded": 0, "shared_faces": n_pairs, "hanging_faces": 0}
 
 
 #: ``mesh.memo`` key of a face neighbour table built from the face pairs (:func:`pairs_as_neighbours`)

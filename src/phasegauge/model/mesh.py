@@ -26,8 +26,7 @@ import numpy as np
 from ..errors import UnsupportedMeshError
 from ._centroids import cell_centroids_of, mesh_geometry, piece_measures, zero_measures
 from ._conversions import corner_sums, linear_point_values
-from ._faces import (cell_adjacency, face_pairs, face_rows, face_topology, grid_face_numbers, grouped_faces,
-                     local_faces, row_owners, unique_edges)
+from ._faces import cell_adjacency, face_pairs, face_topology, grid_face_numbers, grouped_faces, unique_edges
 from ._grouping import index_dtype, unique_ints
 from ._regular_grid import RegularGrid, find_regular_grid
 from .cells import CELL_DIMENSION, LINEAR_CORNERS, JoinedPieces
@@ -419,18 +418,6 @@ class Mesh:
             m.data[:] = 1.0  # a corner repeated in a degenerate cell counts once
         return m
 
-    def _local_faces(self, block: CellBlock) -> list:
-        """Local corner lists of the faces (3D) or edges (2D) of a block's cells."""
-        return local_faces(block)
-
-    def _face_rows(self):
-        """Every face of every cell as sorted corner columns (see :func:`._faces.face_rows`)."""
-        return face_rows(self)
-
-    def _row_owners(self, rows: np.ndarray, row_starts: np.ndarray) -> np.ndarray:
-        """The cell that owns each face row of :meth:`_face_rows`."""
-        return row_owners(self, rows, row_starts)
-
     @cached_property
     def _face_topology(self) -> dict:
         """Face grouping, done once (see :func:`._faces.face_topology`)."""
@@ -467,11 +454,16 @@ class Mesh:
     def face_pairs(self) -> np.ndarray:
         """Pairs of cells sharing a face (3D) or an edge (2D), shape (n_pairs, 2), sorted.
 
-        Faces are matched by their corner points, so cells must share points
-        (a conforming mesh); faces with hanging nodes do not connect. Read from the
-        face neighbours a reader gave with the cells it split, when it did (not kept).
+        Faces are matched by their corner points; a face lying on part of a larger face (hanging
+        nodes of a refined mesh: :attr:`hanging_faces`) joins the two cells too. Read from the face
+        neighbours a reader gave with the cells it split, when it did (not kept).
         """
         return face_pairs(self)
+
+    @property
+    def hanging_faces(self) -> int:
+        """Faces (edges in 2D) on parts of larger faces, joined to them (:mod:`._hanging_faces`); 0 on a grid."""
+        return 0 if self.regular_grid is not None else int(self._face_topology.get("hanging_faces", 0))
 
     @property
     def boundary_faces(self) -> tuple:
