@@ -66,3 +66,11 @@ def test_series_with_a_missing_output_warns_with_the_interval_used(tmp_path):
     texts = _series_warnings(_folder(tmp_path, [t for t in REGULAR if t != 0.4]))
     assert len(texts) == 1, texts
     assert "0.3 to 0.5" in texts[0] and "most common output interval 0.1" in texts[0], texts[0]
+
+
+def test_outputs_at_irregular_times_show_no_gap():
+    # an adaptive solver's outputs: no interval holds half the steps, so none is missing (two outputs
+    # 1e-7 apart, and steps of 0.01 and 0.08 twice each, made the smallest common one 0.0099999 before
+    # and every step a whole multiple of it)
+    times = [0.0, 0.05, 0.13, 0.1300001, 0.21, 0.33, 0.34, 0.52, 0.7, 0.7000002, 0.71, 0.93, 1.0]
+    assert time_gaps(times)[0] == []

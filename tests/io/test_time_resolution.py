@@ -77,7 +77,7 @@ def test_a_repeated_step_in_single_precision_is_not_blamed_on_precision(tmp_path
     # of the interval, so the fix is the repeated step's
     series, _ = _messages(_series(tmp_path / "run", [0.0, 1.0, 2.0, 2.0, 3.0], np.float32))
     text = series.time_problem().one_line()
-    assert "time 2 after 2" in text and "remove the repeated step" in text and "single precision" not in text
+    assert "time 2 after 2" in text and "choose the steps" in text and "single precision" not in text
 
 
 def test_each_time_judged_against_its_own_interval(tmp_path):

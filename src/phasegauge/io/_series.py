@@ -41,7 +41,7 @@ from ._multiblock import without_indexed_files
 from ._meshio_adapter import StepFields, mesh_and_fields
 from ._meshio_xdmf import XdmfTimeSeries
 from ._claims import CheckedFiles, check_hdf5_claims
-from ._series_gaps import (RESOLUTION_SHARE, coarse_time_share, two_times, warn_series_gaps,
+from ._series_gaps import (RESOLUTION_SHARE, coarse_time_share, restart_problem, two_times, warn_series_gaps,
                            warn_time_resolution)
 from ._series_names import check_one_family, digits_masked, first_three, natural_key, warn_decimal_doubt
 from ._xdmf import (collection_times, collections_among, grid_time, included_files, lone_collection,
@@ -416,27 +416,33 @@ class Series:
         """Times of all steps, shape (n_steps,) (NaN where unknown)."""
         return np.array([s.time for s in self.steps])
 
-    def time_problem(self) -> SeriesError | None:
+    def time_problem(self, chosen=None) -> SeriesError | None:
         """The first place where the step times do not increase, as an error (None: they increase).
 
-        Steps whose time is unknown (unreadable files) are left out of the check.
+        Steps of unknown time (unreadable files) are left out; with ``chosen`` (step numbers), also those not chosen.
         """
-        known = [s for s in self.steps if np.isfinite(s.time)]
+        picked = self.steps if chosen is None else [self.steps[i] for i in chosen]
+        known = [s for s in picked if np.isfinite(s.time)]
         coarse = coarse_time_share(self.steps) >= RESOLUTION_SHARE
-        for before, after in zip(known[:-1], known[1:]):
+        for k, (before, after) in enumerate(zip(known[:-1], known[1:])):
+            again = [s for s in known[k + 1:] if s.time <= before.time]  # a restart: times seen twice
+            if (after.time < before.time and self.kind != "listing" and len(again) > 1
+                    and sum(s.time >= after.time for s in known[:k + 1]) > 1):
+                return restart_problem(before, after, again)
             if after.time <= before.time:
                 if self.kind == "listing":
                     fix = f"correct the times in {os.path.basename(self.path)} or remove the repeated step"
                 elif self.kind == "collection":
-                    fix = "remove the repeated or out-of-order grids (a restart may have written them twice)"
+                    fix = "choose the steps (--steps, --time-from, --time-to) or remove the repeated or out-of-order grids"
                 elif coarse and abs(after.time - before.time) < max(before.time_resolution, after.time_resolution):
                     fix = (f"the files store the times in single precision, which tells times near {after.time:.8g} "
                            f"apart only to {after.time_resolution:.2g}: write them in double precision, or give a "
                            "'time,path' listing")
                 elif after.time == before.time:
-                    fix = ("remove the repeated step (a restart may have written it twice; if the files are pieces "
-                           "of one step of a parallel run, join them into one file or a .vtm multiblock file), "
-                           "or give a 'time,path' listing")
+                    repeated = len(known) - len({s.time for s in known})
+                    fix = (f"{repeated} times occur twice or more (a restart writes steps again): " if repeated > 1
+                           else "") + ("choose the steps (--steps, --time-from, --time-to) or give a 'time,path' "
+                                       "listing of those to keep; join a parallel run's pieces into one file or .vtm")
                 else:
                     fix = ("rename the files so their names sort like their times, give a 'time,path' listing, "
                            "or order the steps by their file times with --sort-by-time "

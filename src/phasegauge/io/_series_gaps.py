@@ -13,15 +13,28 @@ import warnings
 
 import numpy as np
 
-from ..errors import SeriesWarning
+from ..errors import SeriesError, SeriesWarning
 from ._series_names import INTERVAL_TOLERANCE, NAME_NUMBER, first_three, name_number
 
 __all__ = ["numbering_gaps", "output_interval", "time_gaps", "warn_series_gaps", "warn_time_resolution", "two_times",
-           "coarse_time_share", "INTERVAL_TOLERANCE", "RESOLUTION_SHARE"]
+           "coarse_time_share", "restart_problem", "INTERVAL_TOLERANCE", "RESOLUTION_SHARE"]
 
 #: times stored to a resolution of this share of the step interval or more are warned of: the
 #: intervals, and every rate per time, may be off by that share (our threshold)
 RESOLUTION_SHARE = 0.01
+
+
+def restart_problem(before, after, again: list) -> SeriesError:
+    """The error for times that go back from step ``before`` to ``after`` where a restart wrote the
+    steps ``again`` (those from ``after`` on whose times the run had reached already) a second time."""
+    shown = two_times(before.time, after.time)
+    span = two_times(again[0].time, again[-1].time)
+    return SeriesError(
+        f"times go back at step {after.index} (t = {shown[1]} after {shown[0]} at step {before.index}): a restart "
+        f"wrote {len(again)} steps again (t = {span[0]} to {span[1]}), and a run measures one copy of each time",
+        where=f"{after.path}, step {after.index}",
+        fix=f"choose one run's steps (--steps :{after.index} up to the restart, --steps {after.index}: from it), "
+            f"or give a 'time,path' listing of the first run's steps before t = {shown[1]} and the restart's steps")
 
 
 def two_times(a: float, b: float) -> tuple:
@@ -136,7 +149,8 @@ def time_gaps(times) -> tuple[list, float]:
     (:func:`output_interval`), and a gap is a step of a whole multiple (two or more, to a part in
     a thousand) of it. Solver files numbered by time-step index (0, 13, 26, 55, ...) with a
     steady output interval in time show no gap; irregular output times that are no multiple of
-    the interval (an extra output at a restart, adaptive steps) are no gap either.
+    the interval (an extra output at a restart, adaptive steps) are no gap either, and where no
+    interval holds half the steps (outputs at irregular times) there is none.
     """
     times = np.asarray([t for t in times if np.isfinite(t)], dtype=np.float64)
     if times.size < 3:
@@ -146,6 +160,8 @@ def time_gaps(times) -> tuple[list, float]:
     if steps.size == 0:
         return [], float("nan")
     interval = output_interval(steps)
+    if 2 * np.count_nonzero(np.abs(steps - interval) <= INTERVAL_TOLERANCE * interval) < steps.size:
+        return [], interval  # no interval holds half the steps (adaptive output times): nothing to miss
     ratio = diffs / interval
     whole = np.abs(ratio - np.round(ratio)) <= INTERVAL_TOLERANCE * np.maximum(ratio, 1.0)
     jumps = np.flatnonzero((ratio >= 2 - INTERVAL_TOLERANCE) & whole)
@@ -177,7 +193,7 @@ def warn_series_gaps(files: list, where: str, steps: list) -> None:
         if gaps:
             shown = first_three(["{} to {}".format(*two_times(a, b)) for a, b in gaps])
             warnings.warn(SeriesWarning(f"the step times jump ({shown}) against the series' most common output "
-                                        f"interval {interval:g}: steps may be missing or the output interval changed",
+                                        f"interval {interval:.4g}: steps may be missing or the output interval changed",
                                         where=where), stacklevel=3)
         return
     gaps = numbering_gaps(files)

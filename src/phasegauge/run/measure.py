@@ -202,7 +202,12 @@ def measure(path, field: str | None = None, *, options: MeasureOptions | None = 
         series = Series(path, mesh_pool=mesh_pool, sort_by_time=options.sort_by_time)
     notes = _records(caught)
     try:
-        problem = series.time_problem()
+        from ._selection import chosen_steps
+
+        # the chosen steps' times must increase (a restart's repeated steps may be left out)
+        problem = series.time_problem(chosen_steps(series.times, steps=options.steps, time_from=options.time_from,
+                                                   time_to=options.time_to, every=options.every,
+                                                   where=series.path))
         if problem is not None:
             raise problem
         check_output_place(series, out)

@@ -1,0 +1,82 @@
+"""A restarted run: the solver went back to an earlier time and wrote those steps again.
+
+The error says so (how many steps, which times) and names the step choices that measure one copy; the
+choice is made before the times are checked, so ``--steps`` measures either run, in VTU series and in
+an XDMF collection alike. Times that are merely out of name order are not taken for a restart.
+"""
+
+import meshio
+import numpy as np
+import pytest
+import pyvista
+
+import phasegauge
+from phasegauge.errors import SeriesError
+from phasegauge.meshgen import grid_mesh
+
+pyvista.OFF_SCREEN = True
+
+FIRST = [round(0.1 * k, 10) for k in range(11)]  # 0 .. 1.0
+AGAIN = [round(0.6 + 0.1 * k, 10) for k in range(10)]  # the restart: 0.6 .. 1.5
+
+
+def _drop(t, mesh):
+    centre = mesh.cell_centroids
+    return 1.0 / (1.0 + np.exp((np.linalg.norm(centre - 0.5, axis=1) - 0.25) / (0.02 + 0.01 * t)))
+
+
+def _vtu_series(folder, times):
+    folder.mkdir()
+    mesh = grid_mesh((12, 12), kind="quad")
+    points = np.c_[mesh.points[:, :2], np.zeros(mesh.n_points)]
+    for k, t in enumerate(times):
+        grid = pyvista.from_meshio(meshio.Mesh(points, [("quad", mesh.blocks[0].connectivity)]))
+        grid.cell_data["c"] = _drop(t, mesh)
+        grid.field_data["TimeValue"] = np.array([t])  # the time in the file, as VTK writes it
+        grid.save(folder / f"out_{k:04d}.vtu")
+    return str(folder / "out_*.vtu")
+
+
+def _xdmf_series(path, times):
+    mesh = grid_mesh((12, 12), kind="quad")
+    points = np.c_[mesh.points[:, :2], np.zeros(mesh.n_points)]
+    with meshio.xdmf.TimeSeriesWriter(path) as writer:
+        writer.write_points_cells(points, [("quad", mesh.blocks[0].connectivity)])
+        for t in times:
+            writer.write_data(t, cell_data={"c": [_drop(t, mesh)]})
+    return str(path)
+
+
+@pytest.mark.parametrize("kind", ["vtu", "xdmf"])
+def test_a_restart_is_named_and_either_run_measured(tmp_path, kind, monkeypatch):
+    monkeypatch.chdir(tmp_path)  # meshio writes the HDF5 file beside the working folder's XDMF file
+    times = FIRST + AGAIN
+    path = _vtu_series(tmp_path / "run", times) if kind == "vtu" else _xdmf_series("run.xdmf", times)
+    with pytest.raises(SeriesError) as caught:
+        phasegauge.measure(path, "c")
+    text = caught.value.one_line()
+    assert "times go back at step 11 (t = 0.6 after 1 at step 10)" in text
+    assert "a restart wrote 5 steps again (t = 0.6 to 1)" in text
+    assert "--steps :11" in text and "--steps 11:" in text
+    first = phasegauge.measure(path, "c", steps=":11")
+    assert first.steps["time"].tolist() == pytest.approx(FIRST)
+    restart = phasegauge.measure(path, "c", steps="11:")
+    assert restart.steps["time"].tolist() == pytest.approx(AGAIN)
+
+
+def test_times_out_of_name_order_are_no_restart(tmp_path):
+    path = _vtu_series(tmp_path / "run", [0.0, 0.5, 0.1, 0.2, 0.3])
+    with pytest.raises(SeriesError) as caught:
+        phasegauge.measure(path, "c")
+    text = caught.value.one_line()
+    assert "restart" not in text and "--sort-by-time" in text
+
+
+def test_sorted_by_time_the_repeated_times_are_counted(tmp_path):
+    path = _vtu_series(tmp_path / "run", FIRST + AGAIN)
+    with pytest.raises(SeriesError) as caught:
+        phasegauge.measure(path, "c", sort_by_time=True)
+    assert "5 times occur twice or more (a restart writes steps again)" in caught.value.one_line()
+    # a time window that leaves the repeated times out measures the rest
+    early = phasegauge.measure(path, "c", sort_by_time=True, time_to=0.5)
+    assert early.steps["time"].tolist() == pytest.approx(FIRST[:6])
