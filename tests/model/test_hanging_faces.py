@@ -137,6 +137,47 @@ def test_faces_of_points_written_twice_stay_apart():
     assert mesh.hanging_faces == 0
 
 
+def test_a_refined_side_of_a_baffle_with_points_of_its_own_stays_apart():
+    # two blocks of quads meet on x = 1: fine cells (0.25) on the left, coarse (0.5) on the right, the
+    # plane's points written once for each block: a baffle, no seam (no point of the coarse faces is
+    # a fine face's)
+    left = _tree(2, 4, 0, lambda c, size: 0)
+    fine = _mesh([(corner * [1, 1], size) for corner, size in left], 2)
+    coarse = _mesh([(np.array([1 + 0.5 * i, 0.5 * j]), 0.5) for i in range(2) for j in range(2)], 2)
+    points = np.vstack([fine.points, coarse.points])
+    blocks = [("quad", np.vstack([fine.blocks[0].connectivity, coarse.blocks[0].connectivity + fine.n_points]))]
+    mesh = Mesh(points, blocks)
+    assert mesh.hanging_faces == 0
+    assert len(label_droplets(mesh, np.ones(mesh.n_cells)).table) == 2
+
+
+def test_a_face_covered_in_part_stays_boundary_and_its_cells_are_joined():
+    # a step: fine cells (0.25) over y in [0.5, 1] up to x = 1, then a coarse cell (1) over y in [0, 1]:
+    # the coarse cell's face on x = 1 is half wall (below the fine cells) and half seam
+    leaves = [(np.array([0.25 * i, 0.5 + 0.25 * j]), 0.25) for i in range(4) for j in range(2)]
+    leaves += [(np.array([1.0, 0.0]), 1.0), (np.array([2.0, 0.0]), 1.0)]
+    mesh = _mesh(leaves, 2)
+    pairs = {tuple(p) for p in mesh.face_pairs.tolist()}
+    assert {(6, 8), (7, 8)} <= pairs  # the fine cells on x = 1 joined to the coarse cell
+    # outline 8 (analytic) plus the seam's 0.5 from each side: the partly covered face and its smaller
+    # faces stay boundary faces, as before the join
+    assert _boundary_measure(mesh) == pytest.approx(9.0, rel=1e-12)
+
+
+@pytest.mark.parametrize("dim", [2, 3])
+def test_hanging_nodes_of_a_mapped_mesh_are_joined(dim):
+    # the quadtree (octree) mapped by a smooth shear: hanging nodes lie on the curved mesh lines,
+    # off the coarse faces' planes by their sagitta
+    base = 8 if dim == 2 else 6
+    leaves = _tree(dim, base, 2, _ring(np.full(dim, 0.45), 0.3))
+    straight = _mesh(leaves, dim)
+    points = straight.points.copy()
+    points[:, 0] += 0.02 * np.sin(np.pi * points[:, 1])
+    mapped = Mesh(points, [(straight.blocks[0].cell_type, straight.blocks[0].connectivity)])
+    assert mapped.hanging_faces == straight.hanging_faces > 0
+    np.testing.assert_array_equal(mapped.face_pairs, straight.face_pairs)
+
+
 def test_a_fine_triangle_pair_beside_a_coarse_triangle_is_no_overlap():
     # a coarse triangle on the left of x = 1; on its right two triangles share the edge's midpoint
     points = np.array([[0, 0], [1, 0], [1, 2], [1, 1], [2, 0], [2, 2]], float)

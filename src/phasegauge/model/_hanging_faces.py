@@ -8,9 +8,12 @@ that lie within a larger boundary face, facing it, so the face topology can join
 take the seam out of the boundary. Two equal faces at one place (points written twice) are left
 apart: they may be a baffle, a wall inside the domain.
 
-The test is geometric and exact up to a tolerance of 1e-4 of the larger face's size: every corner
-of the smaller face lies in the larger face's plane (on its line in 2D) and inside it, and the two
-faces' outward normals are opposed. A face on a plane of the mesh's bounding box is never part of
+The test is geometric, to a tolerance of 1e-2 of the larger face's size (a hanging node of a mapped
+mesh lies on the curved mesh line, off the coarse face's plane by its sagitta): every corner of the
+smaller face lies in the larger face's plane (on its line in 2D) and inside it, the two faces'
+outward normals are opposed, and some smaller face of the larger one shares a corner with it (a
+baffle written with points of its own shares none). A larger face the smaller ones cover in part
+(a wall beside the seam) stays a boundary face, and so do they; their cells are joined all the same. A face on a plane of the mesh's bounding box is never part of
 a seam (a cell would lie on each side of it), so on a box-shaped domain without refinement seams
 no face is tested.
 """
@@ -24,8 +27,9 @@ from ._centroids import cell_centroids_of
 
 __all__ = ["hanging_face_links", "HANGING_TOLERANCE"]
 
-#: distances within this share of the larger face's size count as zero (rounding of written points)
-HANGING_TOLERANCE = 1e-4
+#: distances within this share of the larger face's size count as zero (rounding of written points,
+#: and a hanging node placed on a curved mesh line rather than on the coarse face's straight edge)
+HANGING_TOLERANCE = 1e-2
 #: least opposition of the two faces' unit outward normals (cos 8 degrees)
 _OPPOSED = 0.99
 
@@ -45,8 +49,8 @@ def hanging_face_links(mesh, corners: np.ndarray, owners: np.ndarray):
     tuple or None
         None when no face lies within a larger one. Else ``small`` and ``large`` (int64 indices into
         the faces, one row per pair: ``small`` within ``large``; two equal faces, as at points written
-        twice, are no pair: they may be a baffle) and ``covered`` (bool per face: the face is a seam
-        face, a smaller one of a pair or a larger one the smaller ones cover to 1e-6 of its measure).
+        twice, are no pair: they may be a baffle) and ``covered`` (bool per face: a larger face the
+        smaller ones cover to 1e-6 of its measure, or one of those smaller faces: no boundary).
     """
     n = corners.shape[0]
     d = mesh.dimension
@@ -89,16 +93,20 @@ def hanging_face_links(mesh, corners: np.ndarray, owners: np.ndarray):
     if large.size == 0:
         return None
     # a face equal to the other (points written twice at one place) may be a baffle, a wall inside
-    # the domain: only a strictly smaller face is joined
+    # the domain: only a strictly smaller face is joined; and a seam shares points with the larger
+    # face (its corners are corners of some smaller face), a baffle written with points of its own none
     measure = _measures(pts, valid, normal, d)
-    keep = measure[small] < (1 - 1e-6) * measure[large]
+    shares = np.any((cols[small][:, :, None] == cols[large][:, None, :]) & valid[small][:, :, None], axis=(1, 2))
+    keep = (measure[small] < (1 - 1e-6) * measure[large]) & (np.bincount(large, shares, n)[large] > 0)
     large, small = large[keep], small[keep]
     if large.size == 0:
         return None
-    covered = np.zeros(n, dtype=bool)
-    covered[small] = True
+    # a larger face the smaller ones cover whole leaves the boundary with them; one covered in part
+    # (a wall beside the seam) stays, and so do its smaller faces, as before
     held = np.bincount(large, weights=measure[small], minlength=n)
-    covered |= (held > 0) & (held >= (1 - 1e-6) * measure)
+    whole = (held > 0) & (held >= (1 - 1e-6) * measure)
+    covered = whole.copy()
+    covered[small[whole[large]]] = True
     return small.astype(np.int64), large.astype(np.int64), covered
 
 
