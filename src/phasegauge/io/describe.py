@@ -134,6 +134,9 @@ def _describe(series, scan: str) -> dict:
     from ..model.quasi2d import one_cell_thick
 
     flat = one_cell_thick(mesh)
+    from ..model._wedge_sector import wedge_sector
+
+    sector = wedge_sector(mesh)
     desc = {
         "path": os.fspath(series.path),
         "kind": series.kind,
@@ -154,6 +157,7 @@ def _describe(series, scan: str) -> dict:
         "cell_size": {"min": float(sizes.min()), "median": float(np.median(sizes)),
                       "max": float(sizes.max())},
         "hanging_faces": mesh.hanging_faces,
+        "wedge_sector": None if sector is None else sector.record(),
         "inverted_cells": int(mesh.inverted_cells),
         "degenerate_cells": int(mesh.degenerate_cells),
         "mesh_changes": len(meshes) > 1,
@@ -242,6 +246,11 @@ def format_description(desc: dict) -> str:
     word = "area" if desc["dimension"] == 2 else "volume"
     lines.append(f"domain      {word} {desc['total_measure']:.6g}; cell size min {cs['min']:.4g}, "
                  f"median {cs['median']:.4g}, max {cs['max']:.4g}")
+    if desc.get("wedge_sector"):
+        w = desc["wedge_sector"]
+        at = ", ".join(f"{a} = {v:.6g}" for a, v in w["through"].items())
+        lines.append(f"wedge       {w['angle_degrees']:.3g} degree sector about a line along {w['axis']} ({at}), one cell "
+                     "thick: an axisymmetric run, measured as the 3D sector (no axisymmetric measures)")
     if desc.get("hanging_faces"):
         faces = "edges" if desc["dimension"] == 2 else "faces"
         lines.append(f"hanging     {desc['hanging_faces']} {faces} lie on parts of larger {faces} (hanging nodes of a "

@@ -104,6 +104,14 @@ def check_mesh(mesh, where: str, *, reported: set | None = None) -> None:
         text = (f"1 cell has zero {word}; it carries" if degenerate == 1 else
                 f"{degenerate} cells have zero {word}; they carry")
         warnings.warn(MeshWarning(f"{text} no phase volume", where=where), stacklevel=3)
+    from ..model._wedge_sector import wedge_sector
+
+    sector = wedge_sector(mesh)
+    if sector is not None:
+        warnings.warn(MeshWarning(f"the mesh is {sector.words()}: an axisymmetric run, measured as the 3D sector "
+                                  "(volumes and droplet sizes are the sector's; its cells, thin across it, make the "
+                                  "interface read wider in cells, so the interface kind and the resolution findings "
+                                  "may be wrong)", where=where), stacklevel=3)
 
 
 def _cells(count: int) -> str:
