@@ -65,14 +65,16 @@ def hanging_face_links(mesh, corners: np.ndarray, owners: np.ndarray):
     valid = cols >= 0
     # the faces' points, triangles with their first corner repeated in the pad
     pts = x[np.where(valid, cols, cols[:, -1:])]  # (n, width, d)
-    count = valid.sum(axis=1)
-    centre = (pts * valid[..., None]).sum(axis=1) / count[:, None]
-    radius = np.sqrt(((pts - centre[:, None]) ** 2).sum(axis=2).max(axis=1))
+    corner = [pts[:, k] for k in range(width)]  # (numpy reduces over short trailing axes slowly)
+    centre = sum(corner[k] * valid[:, k, None] for k in range(width)) / valid.sum(axis=1)[:, None]
+    radius = np.sqrt(np.maximum.reduce([np.einsum("ij,ij->i", p - centre, p - centre) for p in corner]))
     tol = HANGING_TOLERANCE * radius
-    low, high = pts.min(axis=1), pts.max(axis=1)  # each face's box
+    low, high = np.minimum.reduce(corner), np.maximum.reduce(corner)  # each face's box
     lo, hi = low.min(axis=0), high.max(axis=0)  # the mesh's box is its boundary's
     # every corner on one plane of the mesh's box: outer boundary
-    on_box = np.any((high - lo <= tol[:, None]) | (hi - low <= tol[:, None]), axis=1)
+    on_box = np.zeros(n, dtype=bool)
+    for axis in range(d):
+        on_box |= (high[:, axis] - lo[axis] <= tol) | (hi[axis] - low[:, axis] <= tol)
     inner = np.flatnonzero(~on_box & (radius > 0))
     if inner.size < 2:
         return None

@@ -62,17 +62,19 @@ def wedge_sector(mesh) -> WedgeSector | None:
     def compute():
         if mesh.dimension != 3 or mesh.n_points < 6 or mesh.regular_grid is not None:
             return None
-        points = mesh.points
-        extent = float(np.max(np.ptp(points, axis=0)))
+        used = mesh.used_points  # (points no cell uses lie anywhere)
+        points = mesh.points if used.size == mesh.n_points else mesh.points[used]
+        lo, hi = mesh.bounds
+        extent = float(np.max(hi - lo))
         if not np.isfinite(extent) or extent <= 0:
             return None
         tol = WEDGE_TOLERANCE * extent
         n = points.shape[0]
-        sample = np.arange(min(n, _SAMPLE), dtype=np.int64) * _SPREAD % n  # spread over the point order
+        sample = points[np.arange(min(n, _SAMPLE), dtype=np.int64) * _SPREAD % n]  # spread over the point order
         for axis in range(3):
-            plane = points[:, [a for a in range(3) if a != axis]]
-            fit = _two_rays(plane[sample], tol)
-            if fit is not None and _on_rays(plane, fit, tol):
+            across = [a for a in range(3) if a != axis]
+            fit = _two_rays(sample[:, across], tol)
+            if fit is not None and _on_rays(points[:, across], fit, tol):
                 apex, directions = fit
                 angle = np.degrees(np.arccos(np.clip(directions[0] @ directions[1], -1.0, 1.0)))
                 through = tuple(0.0 if abs(v) <= tol else float(v) for v in apex)  # rounding off a line at 0
