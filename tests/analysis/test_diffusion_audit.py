@@ -161,3 +161,22 @@ def test_a_narrowing_interface_is_worded_as_such():
     audit = diffusion_audit(t, 2e-4 - 1e-4 * t, cells_across=np.full(t.size, 6.0))
     assert not audit["significant"] and not audit["widening"]
     assert audit["verdict"].startswith("no widening: the interface narrows")
+
+
+def test_a_falling_variance_with_a_steady_width_is_no_narrowing():
+    # the variance falls significantly but by 0.5 % only (a dissolving drop's curvature term): the width
+    # changes by far less than the 5 % a verdict of widening needs, so no narrowing either
+    t = np.linspace(0, 1, 12)
+    audit = diffusion_audit(t, 1e-4 * (1 - 0.005 * t), cells_across=np.full(t.size, 6.0))
+    assert audit["verdict"].startswith("no widening: the fitted diffusivity") and "changes by only" in audit["verdict"]
+
+
+def test_times_that_are_step_numbers_give_no_ratio():
+    # D = 1e-4 per step; with a physical diffusivity given, the ratio would mix per-step and per-time rates
+    t = np.arange(10.0)
+    audit = diffusion_audit(t, 1e-4 + 2e-5 * t, cells_across=np.full(t.size, 6.0), physical_diffusivity=1e-5,
+                            times_are_indices=True)
+    assert audit["D_num"] == pytest.approx(1e-5) and np.isnan(audit["D_ratio"])
+    assert "per step" in audit["note"] and audit["verdict"].endswith("(the steps store no times: per step index)")
+    timed = diffusion_audit(t, 1e-4 + 2e-5 * t, cells_across=np.full(t.size, 6.0), physical_diffusivity=1e-5)
+    assert timed["D_ratio"] == pytest.approx(1.0) and "note" not in timed

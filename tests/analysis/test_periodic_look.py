@@ -161,3 +161,16 @@ def test_a_cell_off_the_probed_ones_that_does_not_span_is_found(tmp_path):
     assert not all(spans) and sum(spans) == len(spans) - 1
     assert _every_cell_spans(mesh, kept, high) is False
     assert _every_cell_spans(mesh, low, high) is True
+
+
+def test_a_drop_centred_in_a_closed_box_is_no_sign():
+    # mirrored about the box's middle, its tail matches on opposite walls and varies along them by more
+    # than 1e-3; but no droplet reaches a wall, so nothing would be counted twice (the audit's sphere)
+    mesh = grid_mesh((24, 24, 24), kind="hexahedron")
+    r = np.linalg.norm(mesh.points - 0.5, axis=1)
+    drop = 1.0 / (1.0 + np.exp((r - 0.3) / 0.06))
+    assert np.ptp(drop[mesh.points[:, 0] == 0.0]) > 1e-3
+    assert looks_periodic(mesh, drop, level=0.5) == []
+    x, y = mesh.points[:, 0], mesh.points[:, 1]
+    corners = 0.5 + 0.4 * np.cos(2 * np.pi * x) * np.cos(2 * np.pi * y)  # drops across the walls
+    assert looks_periodic(mesh, corners, level=0.5) == ["x", "y"]

@@ -74,3 +74,12 @@ def test_outputs_at_irregular_times_show_no_gap():
     # and every step a whole multiple of it)
     times = [0.0, 0.05, 0.13, 0.1300001, 0.21, 0.33, 0.34, 0.52, 0.7, 0.7000002, 0.71, 0.93, 1.0]
     assert time_gaps(times)[0] == []
+
+
+def test_a_missing_output_among_jittered_times_is_a_gap():
+    # a solver writes at the first time step past each output time: steps of 0.1 +- 0.2 %, and one
+    # output missing (0.5)
+    rng = np.random.default_rng(7)
+    times = [0.1 * k + (0.0002 * rng.uniform(-1, 1) if k else 0.0) for k in range(11) if k != 5]
+    gaps, interval = time_gaps(times)
+    assert [round(a, 1) for a, _ in gaps] == [0.4] and interval == pytest.approx(0.1, rel=5e-3)

@@ -38,8 +38,8 @@ def _sector(angle, *, axis=0, through=(0.0, 0.0), layers=1, n_axial=12, n_radial
         for j in range(n_radial):
             for k in range(layers):
                 if j == 0:
-                    wedges.append([ids[i, 0, 0], ids[i, 1, k], ids[i, 1, k + 1],
-                                   ids[i + 1, 0, 0], ids[i + 1, 1, k], ids[i + 1, 1, k + 1]])
+                    wedges.append([ids[i, 0, 0], ids[i, 1, k + 1], ids[i, 1, k],
+                                   ids[i + 1, 0, 0], ids[i + 1, 1, k + 1], ids[i + 1, 1, k]])
                 else:
                     hexes.append([ids[i, j, k], ids[i + 1, j, k], ids[i + 1, j + 1, k], ids[i, j + 1, k],
                                   ids[i, j, k + 1], ids[i + 1, j, k + 1], ids[i + 1, j + 1, k + 1], ids[i, j + 1, k + 1]])
@@ -56,7 +56,9 @@ def _sector(angle, *, axis=0, through=(0.0, 0.0), layers=1, n_axial=12, n_radial
                                                   (10.0, 2, (0.3, -0.2)), (2.5, 1, (-1.0, 4.0))])
 def test_a_sector_is_recognised_with_its_angle_and_axis(angle, axis, through):
     points, cells = _sector(angle, axis=axis, through=through)
-    sector = wedge_sector(Mesh(points, cells))
+    mesh = Mesh(points, cells)
+    assert mesh.inverted_cells == 0
+    sector = wedge_sector(mesh)
     assert sector is not None and sector.axis == axis
     assert sector.angle == pytest.approx(angle, rel=1e-9)
     np.testing.assert_allclose(sector.through, through, atol=1e-12)
@@ -68,13 +70,20 @@ def test_a_sector_written_in_single_precision_is_recognised():
     assert sector is not None and sector.angle == pytest.approx(5.0, rel=1e-5)
 
 
+def _flat_slab():
+    # three cells thick, 2e-6 of its extent: its jittered faces are out of parallel by a millionth
+    mesh = grid_mesh((8, 8, 3), kind="hexahedron", jitter=0.2, seed=5)
+    return Mesh(mesh.points * [1.0, 1.0, 2e-6], [("hexahedron", mesh.blocks[0].connectivity)])
+
+
 @pytest.mark.parametrize("make", [
     lambda: grid_mesh((6, 5, 4), kind="hexahedron", jitter=0.2, seed=1),
     lambda: grid_mesh((6, 5, 4), kind="tetra", jitter=0.2, seed=2),
     lambda: grid_mesh((6, 5, 4), kind="wedge", seed=3),
     lambda: grid_mesh((6, 5, 1), kind="hexahedron"),  # one cell thick between parallel planes: a slab
     lambda: Mesh(*_sector(5.0, layers=3)),  # three cells across the angle: a 3D sector
-    lambda: grid_mesh((6, 5), kind="quad")])
+    lambda: grid_mesh((6, 5), kind="quad"),
+    lambda: _flat_slab()])
 def test_other_meshes_are_no_sector(make):
     assert wedge_sector(make()) is None
 

@@ -668,3 +668,15 @@ def test_a_file_that_changes_while_the_run_reads_it_is_refused(tmp_path, monkeyp
     monkeypatch.setattr(executors, "run_steps", run_then_touch)
     _assert_one_error_line(["measure", folder, "-f", "alpha", "-o", tmp_path / "o", "--quiet"],
                            "1 input file changed while the run read it (s_2.vtu)")
+
+
+def test_cells_crossed_by_their_corner_order_are_named(tmp_path):
+    # every quad listed (0, 1, 3, 2): a bowtie whose two halves cancel, so no cell has area
+    points = np.array([[x, y, 0.0] for y in range(4) for x in range(4)], dtype=float)
+    quads = np.array([[4 * j + i, 4 * j + i + 1, 4 * j + i + 5, 4 * j + i + 4] for j in range(3) for i in range(3)])
+    crossed = quads[:, [0, 1, 3, 2]]
+    path = tmp_path / "crossed.vtu"
+    meshio.Mesh(points, [("quad", crossed)], cell_data={"alpha": [np.full(9, 0.5)]}).write(path)
+    line = _assert_one_error_line(["measure", str(path), "-f", "alpha", "-o", tmp_path / "o"],
+                                  "crossed.vtu, step 0", "the cells have no area")
+    assert "in an order that crosses" in line and "list each cell's corners in order" in line

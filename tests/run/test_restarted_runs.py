@@ -64,12 +64,29 @@ def test_a_restart_is_named_and_either_run_measured(tmp_path, kind, monkeypatch)
     assert restart.steps["time"].tolist() == pytest.approx(AGAIN)
 
 
-def test_times_out_of_name_order_are_no_restart(tmp_path):
-    path = _vtu_series(tmp_path / "run", [0.0, 0.5, 0.1, 0.2, 0.3])
+@pytest.mark.parametrize("times", [[0.0, 0.5, 0.1, 0.2, 0.3], [0.0, 0.4, 0.5, 0.1, 0.2, 0.3]])
+def test_times_out_of_name_order_are_no_restart(tmp_path, times):
+    # no later time repeats an earlier one: the names are out of order (a restart is named as a maybe)
+    path = _vtu_series(tmp_path / "run", times)
     with pytest.raises(SeriesError) as caught:
         phasegauge.measure(path, "c")
     text = caught.value.one_line()
-    assert "restart" not in text and "--sort-by-time" in text
+    assert "times do not increase" in text and "a restart wrote" not in text and "--sort-by-time" in text
+
+
+def test_a_restart_that_wrote_one_step_is_named(tmp_path):
+    path = _vtu_series(tmp_path / "run", FIRST + [0.6])
+    with pytest.raises(SeriesError) as caught:
+        phasegauge.measure(path, "c")
+    assert "a restart wrote 1 step again (t = 0.6 to 0.6)" in caught.value.one_line()
+
+
+def test_one_step_written_three_times_is_one_repeated_time(tmp_path):
+    path = _vtu_series(tmp_path / "run", [0.0, 0.1, 0.1, 0.1, 0.2, 0.3])
+    with pytest.raises(SeriesError) as caught:
+        phasegauge.measure(path, "c")
+    text = caught.value.one_line()
+    assert "times occur twice or more" not in text and "remove the repeated step" in text
 
 
 def test_sorted_by_time_the_repeated_times_are_counted(tmp_path):

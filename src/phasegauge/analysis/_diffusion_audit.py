@@ -128,7 +128,7 @@ def _robust_fit(t, v):
 
 def diffusion_audit(times, variances, *, cells_across=None, physical_diffusivity: float | None = None,
                     min_steps: int = 3, growth_threshold: float = 0.05,
-                    confidence: float = 0.95) -> dict:
+                    confidence: float = 0.95, times_are_indices: bool = False) -> dict:
     """Effective diffusivity of the interface from its variance history.
 
     Parameters
@@ -154,6 +154,9 @@ def diffusion_audit(times, variances, *, cells_across=None, physical_diffusivity
         Confidence level of the slope's interval, in (0, 1): the slope is
         significant when its two-sided interval excludes 0 (Student's t,
         n - 2 degrees of freedom).
+    times_are_indices : bool
+        The steps store no times (``times`` are step numbers): ``D_num`` is per step,
+        ``D_ratio`` is left out (NaN), and ``note`` says so when a physical diffusivity was given.
 
     Returns
     -------
@@ -284,9 +287,12 @@ def diffusion_audit(times, variances, *, cells_across=None, physical_diffusivity
     significant = bool(slope > quantile * stderr if stderr > 0 else slope > 0)
     widening = bool(significant and np.isfinite(growth) and growth > float(growth_threshold))
     D = 0.5 * slope
-    if slope < -quantile * stderr:
+    if slope < -quantile * stderr and np.isfinite(growth) and growth < -float(growth_threshold):
         verdict = (f"no widening: the interface narrows (fitted diffusivity {D:.3g} +- {0.5 * stderr:.2g}, "
-                   f"r^2 {r_squared:.2g})")
+                   f"r^2 {r_squared:.2g}; width {100 * growth:+.3g} % first to last)")
+    elif slope < -quantile * stderr:
+        verdict = (f"no widening: the fitted diffusivity {D:.3g} +- {0.5 * stderr:.2g} is below 0, but the width "
+                   f"changes by only {100 * growth:+.3g} % (threshold {100 * float(growth_threshold):.3g} %)")
     elif not significant:
         verdict = (f"no significant widening: the fitted diffusivity {D:.3g} +- {0.5 * stderr:.2g} "
                    f"(r^2 {r_squared:.2g}) is not distinguishable from 0")
@@ -296,11 +302,16 @@ def diffusion_audit(times, variances, *, cells_across=None, physical_diffusivity
     else:
         verdict = (f"diffusivity {D:.3g} +- {0.5 * stderr:.2g}, but the width grows by only "
                    f"{100 * growth:+.3g} % (threshold {100 * float(growth_threshold):.3g} %)")
+    if times_are_indices:
+        verdict += " (the steps store no times: per step index)"
     return {
         **common,
         "D_num": D,
         "D_num_stderr": 0.5 * stderr,
-        "D_ratio": D / physical if physical else float("nan"),
+        "D_ratio": D / physical if physical and not times_are_indices else float("nan"),
+        **({"note": "the steps store no times (their times are step numbers): the numerical diffusivity is "
+                    "per step, so its ratio to the physical diffusivity is left out; give the times in a "
+                    "'time,path' listing"} if times_are_indices and physical is not None else {}),
         "significant": significant,
         "widening": widening,
         "r_squared": r_squared,

@@ -84,7 +84,7 @@ def _every_cell_spans(mesh: Mesh, low: np.ndarray, high: np.ndarray) -> bool:
                 and np.all((np.bincount(parents, weights=touches[1]) > 0)[cells]))
 
 
-def looks_periodic(mesh: Mesh, c_point, *, periodic=()) -> list:
+def looks_periodic(mesh: Mesh, c_point, *, periodic=(), level: float | None = None) -> list:
     """Axes along which the point values on opposite boundaries match to round-off.
 
     Parameters
@@ -94,6 +94,10 @@ def looks_periodic(mesh: Mesh, c_point, *, periodic=()) -> list:
         Point values of the indicator.
     periodic : sequence of str
         Axes already measured as periodic (not checked).
+    level : float, optional
+        The droplets' level: an axis counts only where the phase (``c > level``) reaches its boundary
+        planes (no droplet crosses them otherwise; a drop centred in a closed box, its tail the same
+        on both walls, is no sign).
 
     Returns
     -------
@@ -128,6 +132,8 @@ def looks_periodic(mesh: Mesh, c_point, *, periodic=()) -> list:
         spread = float(max(np.ptp(a), np.ptp(b)))
         if not (spread > MIN_VARIATION and float(np.max(np.abs(a - b))) <= ROUNDOFF * spread):
             continue
+        if level is not None and not np.any(a > level):
+            continue  # no droplet reaches the boundary: nothing is counted twice
         if pairs[2] is not None and float(np.max(np.abs(c[pairs[2]] - a))) <= MIN_VARIATION:
             continue  # nothing changes across the boundary (a layered field, a mirror wall): no sign
         found.append(name)

@@ -41,8 +41,8 @@ from ._multiblock import without_indexed_files
 from ._meshio_adapter import StepFields, mesh_and_fields
 from ._meshio_xdmf import XdmfTimeSeries
 from ._claims import CheckedFiles, check_hdf5_claims
-from ._series_gaps import (RESOLUTION_SHARE, coarse_time_share, restart_problem, two_times, warn_series_gaps,
-                           warn_time_resolution)
+from ._series_gaps import (RESOLUTION_SHARE, coarse_time_share, repeated_times_fix, restart_problem, two_times,
+                           warn_series_gaps, warn_time_resolution)
 from ._series_names import check_one_family, digits_masked, first_three, natural_key, warn_decimal_doubt
 from ._xdmf import (collection_times, collections_among, grid_time, included_files, lone_collection,
                     temporal_grids, xdmf_data_files)
@@ -425,10 +425,9 @@ class Series:
         known = [s for s in picked if np.isfinite(s.time)]
         coarse = coarse_time_share(self.steps) >= RESOLUTION_SHARE
         for k, (before, after) in enumerate(zip(known[:-1], known[1:])):
-            again = [s for s in known[k + 1:] if s.time <= before.time]  # a restart: times seen twice
-            if (after.time < before.time and self.kind != "listing" and len(again) > 1
-                    and sum(s.time >= after.time for s in known[:k + 1]) > 1):
-                return restart_problem(before, after, again)
+            restart = restart_problem(known, k) if after.time < before.time and self.kind != "listing" else None
+            if restart is not None:  # the times go back to times the run had written
+                return restart
             if after.time <= before.time:
                 if self.kind == "listing":
                     fix = f"correct the times in {os.path.basename(self.path)} or remove the repeated step"
@@ -439,14 +438,10 @@ class Series:
                            f"apart only to {after.time_resolution:.2g}: write them in double precision, or give a "
                            "'time,path' listing")
                 elif after.time == before.time:
-                    repeated = len(known) - len({s.time for s in known})
-                    fix = (f"{repeated} times occur twice or more (a restart writes steps again): " if repeated > 1
-                           else "") + ("choose the steps (--steps, --time-from, --time-to) or give a 'time,path' "
-                                       "listing of those to keep; join a parallel run's pieces into one file or .vtm")
+                    fix = repeated_times_fix(known)
                 else:
-                    fix = ("rename the files so their names sort like their times, give a 'time,path' listing, "
-                           "or order the steps by their file times with --sort-by-time "
-                           "(recipe: sort_by_time = true)")
+                    fix = ("rename the files to sort like their times, or use --sort-by-time (recipe: sort_by_time = "
+                           f"true); a restart that wrote steps again: --steps :{after.index} or --steps {after.index}:")
                 shown = two_times(before.time, after.time)
                 return SeriesError(f"times do not increase: step {after.index} has time {shown[1]} after "
                                    f"{shown[0]} at step {before.index} ({before.path})",

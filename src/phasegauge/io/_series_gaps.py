@@ -17,24 +17,50 @@ from ..errors import SeriesError, SeriesWarning
 from ._series_names import INTERVAL_TOLERANCE, NAME_NUMBER, first_three, name_number
 
 __all__ = ["numbering_gaps", "output_interval", "time_gaps", "warn_series_gaps", "warn_time_resolution", "two_times",
-           "coarse_time_share", "restart_problem", "INTERVAL_TOLERANCE", "RESOLUTION_SHARE"]
+           "coarse_time_share", "restart_problem", "repeated_times_fix", "INTERVAL_TOLERANCE", "RESOLUTION_SHARE"]
+
+#: steps within this share of the output interval count as that interval where a series must have one
+#: (a solver writes at the first time step past each output time: the steps scatter by a few parts in
+#: a thousand)
+_NEAR = 0.05
 
 #: times stored to a resolution of this share of the step interval or more are warned of: the
 #: intervals, and every rate per time, may be off by that share (our threshold)
 RESOLUTION_SHARE = 0.01
 
 
-def restart_problem(before, after, again: list) -> SeriesError:
-    """The error for times that go back from step ``before`` to ``after`` where a restart wrote the
-    steps ``again`` (those from ``after`` on whose times the run had reached already) a second time."""
+def restart_problem(known: list, k: int) -> SeriesError | None:
+    """The error for times that go back after step ``known[k]`` to times the run had written (a restart
+    wrote those steps again), or None where no later time repeats an earlier one (names out of order).
+    ``known``: the steps with known times, in the series' order."""
+    before, after = known[k], known[k + 1]
+    again = [after]  # the steps written again: from the step after the drop while they rise to the drop
+    for s in known[k + 2:]:
+        if s.time > before.time or s.time <= again[-1].time:
+            break
+        again.append(s)
+    seen = np.array([s.time for s in known[:k + 1]])
+    slack = 1e-9 * max(float(np.max(np.abs(seen))), 1e-300)
+    if not any(np.any(np.abs(seen - s.time) <= slack) for s in again):
+        return None
     shown = two_times(before.time, after.time)
     span = two_times(again[0].time, again[-1].time)
+    n = after.index
     return SeriesError(
-        f"times go back at step {after.index} (t = {shown[1]} after {shown[0]} at step {before.index}): a restart "
-        f"wrote {len(again)} steps again (t = {span[0]} to {span[1]}), and a run measures one copy of each time",
-        where=f"{after.path}, step {after.index}",
-        fix=f"choose one run's steps (--steps :{after.index} up to the restart, --steps {after.index}: from it), "
+        f"times go back at step {n} (t = {shown[1]} after {shown[0]} at step {before.index}): a restart "
+        f"wrote {len(again)} step{'s' if len(again) > 1 else ''} again (t = {span[0]} to {span[1]}), and a run "
+        "measures one copy of each time", where=f"{after.path}, step {n}",
+        fix=f"choose one run's steps (--steps :{n} up to the restart, --steps {n}: from it; recipe: steps = \":{n}\"), "
             f"or give a 'time,path' listing of the first run's steps before t = {shown[1]} and the restart's steps")
+
+
+def repeated_times_fix(known: list) -> str:
+    """The fix for a time written twice in a row: how many times repeat, and the ways to keep one copy."""
+    times, counts = np.unique([s.time for s in known], return_counts=True)
+    repeated = int(np.count_nonzero(counts > 1))
+    head = f"{repeated} times occur twice or more (a restart writes steps again): " if repeated > 1 else ""
+    return head + ("remove the repeated step, choose the steps (--steps, --time-from, --time-to) or give a 'time,path' "
+                   "listing of those to keep; a parallel run's pieces: one file or .vtm")
 
 
 def two_times(a: float, b: float) -> tuple:
@@ -160,7 +186,7 @@ def time_gaps(times) -> tuple[list, float]:
     if steps.size == 0:
         return [], float("nan")
     interval = output_interval(steps)
-    if 2 * np.count_nonzero(np.abs(steps - interval) <= INTERVAL_TOLERANCE * interval) < steps.size:
+    if 2 * np.count_nonzero(np.abs(steps - interval) <= _NEAR * interval) < steps.size:
         return [], interval  # no interval holds half the steps (adaptive output times): nothing to miss
     ratio = diffs / interval
     whole = np.abs(ratio - np.round(ratio)) <= INTERVAL_TOLERANCE * np.maximum(ratio, 1.0)

@@ -19,8 +19,10 @@ __all__ = ["WedgeSector", "wedge_sector", "WEDGE_TOLERANCE"]
 #: points lie on a half-plane when within this fraction of the mesh's largest extent of it (points
 #: written in single precision are placed to about 1e-7 of it)
 WEDGE_TOLERANCE = 1e-5
-#: widest sector recognised, degrees (a solver's axisymmetric wedge is a few degrees)
+#: widest and narrowest sectors recognised, degrees (a solver's axisymmetric wedge is a few degrees; a
+#: slab whose faces are a millionth of its extent out of parallel is no wedge)
 _WIDEST = 30.0
+_NARROWEST = 0.05
 #: points the two half-planes are first fitted to (spread over the point order by a multiplier
 #: prime to any count, Knuth's multiplicative hash); all are checked after
 _SAMPLE = 2000
@@ -107,7 +109,7 @@ def _two_rays(q: np.ndarray, tol: float):
     apex = c1 + (gap[0] * d2[1] - gap[1] * d2[0]) / turn * d1
     directions = [d if (middle - apex) @ d >= 0 else -d for middle, d in ((c1, d1), (c2, d2))]
     angle = np.degrees(np.arccos(np.clip(directions[0] @ directions[1], -1.0, 1.0)))
-    if not 0 < angle <= _WIDEST:
+    if not _NARROWEST <= angle <= _WIDEST:
         return None
     fit = (apex, directions)
     return fit if _on_rays(q, fit, tol) else None

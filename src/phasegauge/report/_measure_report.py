@@ -176,9 +176,14 @@ def _key_figures(result) -> list:
     r_squared = audit.get("r_squared")
     fits = r_squared is not None and np.isfinite(float(r_squared)) and float(r_squared) >= 0.5
     # a diffusivity not distinguishable from 0, or a line that explains little, is no key figure
+    fitted = audit.get("fit_from_time")
+    if audit.get("n_fit") and fitted is not None and np.isfinite(float(fitted)):
+        pairs.append(("diffusion audit fitted", f"{audit['n_fit']} of {audit.get('n_steps')} steps, from t = "
+                                                f"{float(fitted):.6g}"))
+    unit = "length²/step" if audit.get("note") or "per step index" in str(audit.get("verdict")) else "length²/time"
     if audit.get("significant") and (audit.get("widening") or fits):
-        for key, label in (("D_num", "numerical diffusivity"),
-                           ("D_num_stderr", "numerical diffusivity, standard error"),
+        for key, label in (("D_num", f"numerical diffusivity ({unit})"),
+                           ("D_num_stderr", f"numerical diffusivity, standard error ({unit})"),
                            ("D_ratio", "numerical / physical diffusivity")):
             value = audit.get(key)
             if value is not None and np.isfinite(float(value)):

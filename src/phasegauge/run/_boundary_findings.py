@@ -1,10 +1,14 @@
-"""The finding of an interface that comes within the widths' reach of the domain's boundary."""
+"""Findings of a diffuse interface's place and resolution: within the widths' reach of the domain's
+boundary, and too few cells across."""
 
 from __future__ import annotations
 
 import numpy as np
 
-__all__ = ["boundary_reach_finding", "NEAR_BOUNDARY_SHARE"]
+__all__ = ["boundary_reach_finding", "resolution_finding", "NEAR_BOUNDARY_SHARE", "UNDER_RESOLVED_SHARE"]
+
+#: a larger share of the interface than this with fewer than 4 cells across 0.1 < c < 0.9 is warned of
+UNDER_RESOLVED_SHARE = 0.1
 
 #: a larger share of the interface than this within the widths' reach of the boundary is warned of
 #: (our threshold: a drop 15 cells from a wall, a seventh of its interface facing it in reach, read
@@ -31,3 +35,29 @@ def boundary_reach_finding(steps, kind: str = ""):
                    "width_second_moment and the numerical diffusivity read low (a drop 4 cells from a wall read "
                    "its diffusivity 9 % low in our check)", {"fraction": worst, "time": at,
                                                              "threshold": NEAR_BOUNDARY_SHARE})
+
+
+def resolution_finding(steps, audit: dict, kind: str = ""):
+    """A warning :class:`~phasegauge.run.assemble.Finding` when, at a step of a diffuse run from the
+    first one resolved as a diffuse profile (``interface_cells_across`` of 3.5 or more) and fitted by
+    the audit, more than :data:`UNDER_RESOLVED_SHARE` of the interface has fewer than 4 cells across
+    0.1 < c < 0.9 (common practice), else None. A sharp step before it (a run that starts from a
+    reconstructed step) is the start's, not the model's."""
+    from ..analysis._diffusion_audit import SHARP_CELLS_ACROSS
+    from .assemble import Finding, _number, _worst
+
+    if "under_resolved_interface_fraction" not in steps or kind == "sharp":
+        return None
+    later = steps
+    start = _number(audit.get("fit_from_time"))  # a diffuse run's steps once the profile is resolved
+    if start is not None and "time" in steps:
+        later = later[later["time"] >= start]
+    if "interface_cells_across" in later:
+        resolved = np.flatnonzero(later["interface_cells_across"].to_numpy(dtype=float) >= SHARP_CELLS_ACROSS)
+        later = later.iloc[resolved[0]:] if resolved.size else later
+    worst = _worst(later, "under_resolved_interface_fraction")
+    if not worst > UNDER_RESOLVED_SHARE:
+        return None
+    return Finding("interface_under_resolved", "warning",
+                   f"diffuse interface under-resolved: up to {100 * worst:.3g} % of it has fewer than 4 cells across "
+                   "0.1 < c < 0.9 (common practice)", {"fraction": worst, "threshold": UNDER_RESOLVED_SHARE})

@@ -22,7 +22,7 @@ import numpy as np
 
 from ..errors import (AnalysisError, InputError, PhasegaugeError, SeriesError, SeriesWarning, SkippedStepWarning,
                       collapse_warnings)
-from ._boundary_findings import boundary_reach_finding
+from ._boundary_findings import boundary_reach_finding, resolution_finding
 from .options import STEP_COLUMNS
 
 __all__ = ["Finding", "TrackingFeed", "assemble", "findings"]
@@ -37,7 +37,8 @@ class Finding:
         ``interface_widening``, ``phase_volume_drift``, ``phase_volume_left_out`` (a change no larger than
         what the cells left out for non-finite values could account for: a note), ``open_boundary``,
         ``indicator_overshoot``, ``bulk_plateaus`` (bulk off 0 and 1 read as physics), ``interface_under_resolved``,
-        ``width_cell_data_bias``, ``interface_near_boundary``, ``free_energy_increase``, ``coarsening``,
+        ``width_cell_data_bias``, ``interface_near_boundary``, ``diffusivity_per_step``, ``free_energy_increase``,
+        ``coarsening``,
         ``droplets_under_resolved``, ``steps_skipped``, the mixture findings
         (``separated_one_phase``, ``mixed_inside_spinodal``, ``bulk_not_measured``, ``binodal_gap``,
         ``binodal_gibbs_thomson``, ``binodal_reached``; see ``run/_mixture.py``), ``distance_error`` (a level
@@ -334,7 +335,8 @@ def assemble(series, results: list, options, *, notes=(), feed: TrackingFeed | N
 
         cells = steps["interface_cells_across"].to_numpy() if "interface_cells_across" in steps else None
         audit = diffusion_audit(steps["time"].to_numpy(), steps["interface_variance"].to_numpy(),
-                                cells_across=cells, physical_diffusivity=options.diffusivity)
+                                cells_across=cells, physical_diffusivity=options.diffusivity,
+                                times_are_indices="index" in series.time_origins)
     from ._level_set_run import level_set_audit, level_set_findings
     from ._mixture import mixture_findings
     from ._tracking_findings import tracking_findings
@@ -423,6 +425,8 @@ def findings(steps, droplets, audit: dict, options, skipped: list, *, dimension:
                               "numerical_diffusivity_stderr": _number(audit.get("D_num_stderr")),
                               "diffusivity_ratio": _number(ratio), "width_growth": _number(audit.get("width_growth")),
                               "growth_threshold": 0.05}))
+    if audit.get("note"):
+        found.append(Finding("diffusivity_per_step", "warning", audit["note"], {}))
     open_domain = "open_boundary" in steps and bool(steps["open_boundary"].astype(bool).any())
     domain = _worst(steps, "domain_volume")
     if "phase_volume_drift" in steps:
@@ -477,16 +481,7 @@ def findings(steps, droplets, audit: dict, options, skipped: list, *, dimension:
                                  f"({worst / domain:.2g} of the domain; c from {c_min:.4g} to {c_max:.4g})",
                                  {"overshoot_volume": worst, "c_min": c_min, "c_max": c_max,
                                   "tolerance": tolerance}))
-    if "under_resolved_interface_fraction" in steps and kind != "sharp":
-        start = _number(audit.get("fit_from_time"))  # a diffuse run's steps once the profile is resolved
-        later = steps[steps["time"] >= start] if start is not None and "time" in steps else steps
-        worst = _worst(later, "under_resolved_interface_fraction")
-        if worst > 0.1:
-            found.append(Finding("interface_under_resolved", "warning",
-                                 f"diffuse interface under-resolved: up to {100 * worst:.3g} % of it has fewer than "
-                                 "4 cells across 0.1 < c < 0.9 (common practice)", {"fraction": worst, "threshold": 0.1}))
-    near = boundary_reach_finding(steps, kind)
-    found += [near] if near is not None else []
+    found += [f for f in (resolution_finding(steps, audit, kind), boundary_reach_finding(steps, kind)) if f is not None]
     if "width_cell_data_bias" in steps and kind != "sharp":  # a sharp interface is one to two cells by design
         worst = _worst(steps, "width_cell_data_bias")
         if worst > WIDTH_TOLERANCE:

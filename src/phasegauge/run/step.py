@@ -84,6 +84,12 @@ def check_mesh(mesh, where: str, *, reported: set | None = None) -> None:
     total = mesh.total_measure
     word = "area" if mesh.dimension == 2 else "volume"
     if not np.isfinite(total) or total <= 0:
+        points = mesh.points
+        if np.all(np.isfinite(points)) and np.ptp(points, axis=0).max() > 0:  # spread: the corners' order
+            raise UnsupportedMeshError(f"the cells have no {word} (total {total:g}) though the points are spread: "
+                                       "every cell is flat, or its corners are listed in an order that crosses "
+                                       "(a bowtie quad has none)", where=where,
+                                       fix="list each cell's corners in order around it, as VTK numbers them")
         raise UnsupportedMeshError(f"the cells have no {word} (total {total:g}): the points coincide or are not "
                                    "finite", where=where, fix="the file is damaged or the mesh collapsed; "
                                    "write the step again")
@@ -376,7 +382,7 @@ def _warn_periodic_look(mesh, c_point, options, where: str) -> None:
     """One warning (collapsed over steps) when the field looks periodic along an axis not measured so."""
     from ..analysis.droplets import looks_periodic
 
-    axes = looks_periodic(mesh, c_point, periodic=tuple(options.periodic))
+    axes = looks_periodic(mesh, c_point, periodic=tuple(options.periodic), level=options.level)
     if axes:
         names = ",".join(axes)
         warnings.warn(MeshWarning(f"the field on opposite boundaries along {names} matches to round-off: the run "
