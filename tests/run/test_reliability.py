@@ -680,3 +680,14 @@ def test_cells_crossed_by_their_corner_order_are_named(tmp_path):
     line = _assert_one_error_line(["measure", str(path), "-f", "alpha", "-o", tmp_path / "o"],
                                   "crossed.vtu, step 0", "the cells have no area")
     assert "in an order that crosses" in line and "list each cell's corners in order" in line
+
+
+def test_points_on_one_line_are_a_collapsed_mesh(tmp_path):
+    # every point on the line y = x: no corner order gives a cell any area
+    points = np.array([[t, t, 0.0] for t in np.linspace(0, 1, 16)], dtype=float)
+    quads = np.array([[k, k + 1, k + 5, k + 4] for k in range(9)])
+    path = tmp_path / "line.vtu"
+    meshio.Mesh(points, [("quad", quads)], cell_data={"alpha": [np.full(9, 0.5)]}).write(path)
+    line = _assert_one_error_line(["measure", str(path), "-f", "alpha", "-o", tmp_path / "o"],
+                                  "line.vtu, step 0", "the cells have no area")
+    assert "the points coincide" in line and "order that crosses" not in line

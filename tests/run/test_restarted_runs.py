@@ -97,3 +97,19 @@ def test_sorted_by_time_the_repeated_times_are_counted(tmp_path):
     # a time window that leaves the repeated times out measures the rest
     early = phasegauge.measure(path, "c", sort_by_time=True, time_to=0.5)
     assert early.steps["time"].tolist() == pytest.approx(FIRST[:6])
+
+
+def test_times_stored_in_some_files_only_are_refused(tmp_path):
+    # files 0-2 store their times, 3-5 do not (meshio's writer drops them): seconds and step numbers
+    # would be one time axis
+    path = _vtu_series(tmp_path / "run", [0.0, 0.1, 0.2, 0.3, 0.4, 0.5])
+    mesh = grid_mesh((12, 12), kind="quad")
+    points = np.c_[mesh.points[:, :2], np.zeros(mesh.n_points)]
+    for k in range(3, 6):
+        meshio.Mesh(points, [("quad", mesh.blocks[0].connectivity)],
+                    cell_data={"c": [_drop(0.1 * k, mesh)]}).write(tmp_path / "run" / f"out_{k:04d}.vtu")
+    with pytest.raises(SeriesError) as caught:
+        phasegauge.measure(path, "c")
+    text = caught.value.one_line()
+    assert "some steps store their times and others do not (step 3 is the first that does not)" in text
+    assert len(phasegauge.measure(path, "c", steps=":3").steps) == 3

@@ -424,6 +424,12 @@ class Series:
         picked = self.steps if chosen is None else [self.steps[i] for i in chosen]
         known = [s for s in picked if np.isfinite(s.time)]
         coarse = coarse_time_share(self.steps) >= RESOLUTION_SHARE
+        if "index" in {s.time_origin for s in known} and {s.time_origin for s in known} & {"file", "xdmf"}:
+            first = next(s for s in known if s.time_origin == "index")
+            return SeriesError(f"some steps store their times and others do not (step {first.index} is the first that "
+                               "does not): stored times and step numbers would be one time axis",
+                               where=f"{first.path}, step {first.index}", fix="write the time into every file, give a "
+                               "'time,path' listing, or choose the steps that store it (--steps)")
         for k, (before, after) in enumerate(zip(known[:-1], known[1:])):
             restart = restart_problem(known, k) if after.time < before.time and self.kind != "listing" else None
             if restart is not None:  # the times go back to times the run had written

@@ -85,13 +85,14 @@ def check_mesh(mesh, where: str, *, reported: set | None = None) -> None:
     word = "area" if mesh.dimension == 2 else "volume"
     if not np.isfinite(total) or total <= 0:
         points = mesh.points
-        if np.all(np.isfinite(points)) and np.ptp(points, axis=0).max() > 0:  # spread: the corners' order
+        spread = np.linalg.eigvalsh(np.cov(points.T)) if np.all(np.isfinite(points)) and len(points) > 1 else [0.0]
+        if np.count_nonzero(np.asarray(spread) > 1e-12 * max(spread)) >= mesh.dimension:  # the corners' order
             raise UnsupportedMeshError(f"the cells have no {word} (total {total:g}) though the points are spread: "
                                        "every cell is flat, or its corners are listed in an order that crosses "
                                        "(a bowtie quad has none)", where=where,
                                        fix="list each cell's corners in order around it, as VTK numbers them")
-        raise UnsupportedMeshError(f"the cells have no {word} (total {total:g}): the points coincide or are not "
-                                   "finite", where=where, fix="the file is damaged or the mesh collapsed; "
+        raise UnsupportedMeshError(f"the cells have no {word} (total {total:g}): the points coincide, lie on one "
+                                   f"{'line' if mesh.dimension == 2 else 'plane'} or are not finite", where=where, fix="the file is damaged or the mesh collapsed; "
                                    "write the step again")
     problem = overlap_problem(mesh)
     if problem is not None:
