@@ -93,3 +93,9 @@ def test_a_missing_output_among_late_outputs_is_a_gap():
         times = [0.1 * k + 3e-4 * rng.uniform() for k in range(40) if k != 20]
         gaps, _ = time_gaps(times)
         assert [round(a, 1) for a, _ in gaps] == [1.9]
+
+
+def test_a_long_step_off_a_whole_multiple_is_no_gap():
+    # 5 % of one interval, not of the multiple: a step of 10.4 intervals is no whole multiple
+    times = [0.1 * k for k in range(10)] + [0.9 + 1.04 + 0.1 * k for k in range(10)]
+    assert time_gaps(times)[0] == []

@@ -42,7 +42,8 @@ def _sector(angle, *, axis=0, through=(0.0, 0.0), layers=1, n_axial=12, n_radial
                                    ids[i + 1, 0, 0], ids[i + 1, 1, k + 1], ids[i + 1, 1, k]])
                 else:
                     hexes.append([ids[i, j, k], ids[i + 1, j, k], ids[i + 1, j + 1, k], ids[i, j + 1, k],
-                                  ids[i, j, k + 1], ids[i + 1, j, k + 1], ids[i + 1, j + 1, k + 1], ids[i, j + 1, k + 1]])
+                                  ids[i, j, k + 1], ids[i + 1, j, k + 1], ids[i + 1, j + 1, k + 1],
+                                  ids[i, j + 1, k + 1]])
     local = np.array(points)  # (axial, radial 1, radial 2)
     others = [a for a in range(3) if a != axis]
     out = np.empty_like(local)

@@ -691,3 +691,14 @@ def test_points_on_one_line_are_a_collapsed_mesh(tmp_path):
     line = _assert_one_error_line(["measure", str(path), "-f", "alpha", "-o", tmp_path / "o"],
                                   "line.vtu, step 0", "the cells have no area")
     assert "the points coincide" in line and "order that crosses" not in line
+
+
+def test_a_nan_point_of_a_2d_mesh_is_named(tmp_path):
+    # the plane check reads the bounds, which a NaN point makes NaN: the finite check comes first
+    points = np.array([[x, y, 0.0] for y in range(4) for x in range(4)], dtype=float)
+    points[6, 0] = np.nan
+    quads = np.array([[4 * j + i, 4 * j + i + 1, 4 * j + i + 5, 4 * j + i + 4] for j in range(3) for i in range(3)])
+    path = tmp_path / "nan.vtu"
+    meshio.Mesh(points, [("quad", quads)], cell_data={"alpha": [np.full(9, 0.5)]}).write(path)
+    _assert_one_error_line(["measure", str(path), "-f", "alpha", "-o", tmp_path / "o"],
+                           "nan.vtu, step 0", "NaN or Inf coordinates")

@@ -113,3 +113,26 @@ def test_times_stored_in_some_files_only_are_refused(tmp_path):
     text = caught.value.one_line()
     assert "some steps store their times and others do not (step 3 is the first that does not)" in text
     assert len(phasegauge.measure(path, "c", steps=":3").steps) == 3
+
+
+def test_the_steps_that_store_their_times_measure_with_a_ratio(tmp_path):
+    # file 0 (an initial condition written by another tool) stores no time; measured from step 1 on,
+    # every step has its own time: the audit's diffusivity is per time, with its ratio
+    folder = tmp_path / "run"
+    folder.mkdir()
+    mesh = grid_mesh((40, 40), kind="quad")
+    points = np.c_[mesh.points[:, :2], np.zeros(mesh.n_points)]
+    r = np.linalg.norm(mesh.cell_centroids - 0.5, axis=1)
+    for k in range(8):
+        c = 1.0 / (1.0 + np.exp((r - 0.25) / (0.04 + 0.005 * k)))  # a diffuse drop, about 7 cells across
+        grid = pyvista.from_meshio(meshio.Mesh(points, [("quad", mesh.blocks[0].connectivity)]))
+        grid.cell_data["c"] = c
+        if k:
+            grid.field_data["TimeValue"] = np.array([0.1 * k])
+        grid.save(folder / f"out_{k:04d}.vtu")
+    path = str(folder / "out_*.vtu")
+    with pytest.raises(SeriesError, match="step 0 is the first that does not"):
+        phasegauge.measure(path, "c")
+    result = phasegauge.measure(path, "c", steps="1:", diffusivity=1e-3)
+    assert result.audit["interface_kind"] == "diffuse"
+    assert "per step" not in result.audit["verdict"] and np.isfinite(result.audit["D_ratio"])

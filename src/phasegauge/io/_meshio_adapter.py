@@ -453,16 +453,16 @@ def _warn_single_precision_points(mesh: Mesh, raw, where: str) -> None:
 
 def _checked_mesh(mesh: Mesh, raw, where: str) -> Mesh:
     """Check a newly built mesh; merge coincident points."""
+    finite = np.isfinite(mesh.points).all(axis=1)
+    bad = 0 if finite.all() else int(np.count_nonzero(~finite[mesh.used_points]))
+    if bad:  # (before the plane check: a NaN point fails every comparison there)
+        raise UnsupportedMeshError(f"{bad} points of the cells have NaN or Inf coordinates", where=where,
+                                   fix="the file is damaged or the mesh motion diverged; write the step again")
     if mesh.dimension == 2:
         try:
             mesh.plane_axes  # a curved surface in 3D (a boundary patch) is no 2D domain
         except UnsupportedMeshError as err:
             raise err.with_where(where) from None
-    finite = np.isfinite(mesh.points).all(axis=1)
-    bad = 0 if finite.all() else int(np.count_nonzero(~finite[mesh.used_points]))
-    if bad:
-        raise UnsupportedMeshError(f"{bad} points of the cells have NaN or Inf coordinates", where=where,
-                                   fix="the file is damaged or the mesh motion diverged; write the step again")
     _warn_single_precision_points(mesh, raw, where)
     inverse, n_unique = coincident_points(mesh.points)
     if n_unique == mesh.n_points:

@@ -426,10 +426,10 @@ class Series:
         coarse = coarse_time_share(self.steps) >= RESOLUTION_SHARE
         if "index" in {s.time_origin for s in known} and {s.time_origin for s in known} & {"file", "xdmf"}:
             first = next(s for s in known if s.time_origin == "index")
-            return SeriesError(f"some steps store their times and others do not (step {first.index} is the first that "
-                               "does not): stored times and step numbers would be one time axis",
-                               where=f"{first.path}, step {first.index}", fix="write the time into every file, give a "
-                               "'time,path' listing, or choose the steps that store it (--steps)")
+            return SeriesError(f"some steps store their times and others do not (step {first.index} is the first "
+                               "that does not): stored times and step numbers would be one time axis",
+                               where=f"{first.path}, step {first.index}", fix="write the time into every file or "
+                               "give a 'time,path' listing (measure can also choose the steps that store it: --steps)")
         for k, (before, after) in enumerate(zip(known[:-1], known[1:])):
             restart = restart_problem(known, k) if after.time < before.time and self.kind != "listing" else None
             if restart is not None:  # the times go back to times the run had written
@@ -438,7 +438,7 @@ class Series:
                 if self.kind == "listing":
                     fix = f"correct the times in {os.path.basename(self.path)} or remove the repeated step"
                 elif self.kind == "collection":
-                    fix = "choose the steps (--steps, --time-from, --time-to) or remove the repeated or out-of-order grids"
+                    fix = "choose the steps (--steps, --time-from, --time-to) or remove repeated or out-of-order grids"
                 elif coarse and abs(after.time - before.time) < max(before.time_resolution, after.time_resolution):
                     fix = (f"the files store the times in single precision, which tells times near {after.time:.8g} "
                            f"apart only to {after.time_resolution:.2g}: write them in double precision, or give a "

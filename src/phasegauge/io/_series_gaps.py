@@ -50,9 +50,9 @@ def restart_problem(known: list, k: int) -> SeriesError | None:
         f"times go back at step {n} (t = {shown[1]} after {shown[0]} at step {before.index}): a restart "
         f"wrote {len(again)} step{'s' if len(again) > 1 else ''} again (t = {span[0]} to {span[1]}), and a run "
         "measures one copy of each time", where=f"{after.path}, step {n}",
-        fix=f"measure one run's steps (--steps :{n} up to the restart, --steps {n}: from it; recipe: steps = \":{n}\"), "
-            f"or give a 'time,path' listing of the first run's steps before t = {shown[1]} and the restart's (compare "
-            "takes listings)")
+        fix=f"measure one run's steps (--steps :{n} up to the restart, --steps {n}: from it; recipe: "
+            f"steps = \":{n}\"), or give a 'time,path' listing of the first run's steps before t = {shown[1]} "
+            "and the restart's (compare takes listings)")
 
 
 def repeated_times_fix(known: list) -> str:
@@ -177,8 +177,9 @@ def time_gaps(times) -> tuple[list, float]:
     a thousand) of it. Solver files numbered by time-step index (0, 13, 26, 55, ...) with a
     steady output interval in time show no gap; irregular output times that are no multiple of
     the interval (an extra output at a restart, adaptive steps) are no gap either, and where no
-    interval holds half the steps (outputs at irregular times) there is none. Steps within 5 % of a
-    whole multiple count as one (a solver writes at the first time step past each output time).
+    interval holds half the steps (outputs at irregular times) there is none. A step within 5 % of one
+    interval of a whole multiple counts as one (a solver writes at the first time step past each
+    output time).
     """
     times = np.asarray([t for t in times if np.isfinite(t)], dtype=np.float64)
     if times.size < 3:
@@ -191,7 +192,7 @@ def time_gaps(times) -> tuple[list, float]:
     if 2 * np.count_nonzero(np.abs(steps - interval) <= _NEAR * interval) < steps.size:
         return [], interval  # no interval holds half the steps (adaptive output times): nothing to miss
     ratio = diffs / interval
-    whole = np.abs(ratio - np.round(ratio)) <= _NEAR * np.maximum(ratio, 1.0)  # outputs a little late or early
+    whole = np.abs(ratio - np.round(ratio)) <= _NEAR  # outputs a little late or early: 5 % of one interval
     jumps = np.flatnonzero((ratio >= 2 - _NEAR) & whole)
     return [(float(times[i]), float(times[i + 1])) for i in jumps], interval
 

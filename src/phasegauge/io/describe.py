@@ -116,7 +116,7 @@ def _describe(series, scan: str) -> dict:
                 _accumulate(stats, name, location, np.asarray(values))
     problem = series.time_problem()
     if problem is not None:
-        warnings.warn(SeriesWarning(f"{problem.what}; measure refuses this series: {problem.fix}",
+        warnings.warn(SeriesWarning(f"{problem.what}; measure refuses these steps together: {problem.fix}",
                                     where=problem.where), stacklevel=3)
     if len(dimensions) > 1:
         warnings.warn(SeriesWarning("the steps mix 2D and 3D meshes; measure skips the steps whose dimension "
@@ -249,8 +249,8 @@ def format_description(desc: dict) -> str:
     if desc.get("wedge_sector"):
         w = desc["wedge_sector"]
         at = ", ".join(f"{a} = {v:.6g}" for a, v in w["through"].items())
-        lines.append(f"wedge       {w['angle_degrees']:.3g} degree sector about a line along {w['axis']} ({at}), one cell "
-                     "thick: an axisymmetric run, measured as the 3D sector (no axisymmetric measures)")
+        lines.append(f"wedge       {w['angle_degrees']:.3g} degree sector about a line along {w['axis']} ({at}), "
+                     "one cell thick: an axisymmetric run, measured as the 3D sector (no axisymmetric measures)")
     if desc.get("hanging_faces"):
         faces = "edges" if desc["dimension"] == 2 else "faces"
         lines.append(f"hanging     {desc['hanging_faces']} {faces} lie on parts of larger {faces} (hanging nodes of a "

@@ -3,19 +3,19 @@
 Adaptive solvers refine a cell without its neighbour. The fine cells' faces (edges in 2D) then lie
 on the coarse cell's face and share only some of its corners, so grouping faces by their corners
 (:func:`._faces.face_topology`) leaves every one of them owned by one cell: the seam reads as a
-wall, and a drop across it falls apart into several droplets. :func:`hanging_face_links` finds the faces
-that lie within a larger boundary face, facing it, so the face topology can join their cells and
-take the seam out of the boundary. Two equal faces at one place (points written twice) are left
+wall, and a drop across it falls apart into several droplets. :func:`hanging_face_links` finds the
+faces that lie within a larger boundary face, facing it, so the face topology can join their cells
+and take the seam out of the boundary. Two equal faces at one place (points written twice) are left
 apart: they may be a baffle, a wall inside the domain.
 
 The test is geometric, to a tolerance of 1e-2 of the larger face's size (a hanging node of a mapped
 mesh lies on the curved mesh line, off the coarse face's plane by its sagitta): every corner of the
 smaller face lies in the larger face's plane (on its line in 2D) and inside it, the two faces'
 outward normals are opposed, and some smaller face of the larger one shares a corner with it (a
-baffle written with points of its own shares none). A larger face the smaller ones cover in part
-(a wall beside the seam) stays a boundary face, and so do they; their cells are joined all the same. A face on a plane of the mesh's bounding box is never part of
-a seam (a cell would lie on each side of it), so on a box-shaped domain without refinement seams
-no face is tested.
+baffle written with points of its own shares none). A larger face the smaller ones cover in part (a
+wall beside the seam) stays a boundary face, and so do they; their cells are joined all the same. A
+face on a plane of the mesh's bounding box is never part of a seam (a cell would lie on each side of
+it), so on a box-shaped domain without refinement seams no face is tested.
 """
 
 from __future__ import annotations

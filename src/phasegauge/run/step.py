@@ -92,8 +92,8 @@ def check_mesh(mesh, where: str, *, reported: set | None = None) -> None:
                                        "(a bowtie quad has none)", where=where,
                                        fix="list each cell's corners in order around it, as VTK numbers them")
         raise UnsupportedMeshError(f"the cells have no {word} (total {total:g}): the points coincide, lie on one "
-                                   f"{'line' if mesh.dimension == 2 else 'plane'} or are not finite", where=where, fix="the file is damaged or the mesh collapsed; "
-                                   "write the step again")
+                                   f"{'line' if mesh.dimension == 2 else 'plane'} or are not finite", where=where,
+                                   fix="the file is damaged or the mesh collapsed; write the step again")
     problem = overlap_problem(mesh)
     if problem is not None:
         raise UnsupportedMeshError(problem, where=where,
