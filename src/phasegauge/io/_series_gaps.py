@@ -173,13 +173,13 @@ def time_gaps(times) -> tuple[list, float]:
     """Gaps in a series' own times: ``([(before, after), ...], interval)``.
 
     The output interval is the most common step between consecutive (finite, increasing) times
-    (:func:`output_interval`), and a gap is a step of a whole multiple (two or more, to a part in
-    a thousand) of it. Solver files numbered by time-step index (0, 13, 26, 55, ...) with a
+    (:func:`output_interval`, then the median of every step within 5 % of it), and a gap is a step of
+    a whole multiple of it (two or more). Solver files numbered by time-step index (0, 13, 26, 55, ...) with a
     steady output interval in time show no gap; irregular output times that are no multiple of
     the interval (an extra output at a restart, adaptive steps) are no gap either, and where no
     interval holds half the steps (outputs at irregular times) there is none. A step within 5 % of one
     interval of a whole multiple counts as one (a solver writes at the first time step past each
-    output time).
+    output time), widened by the interval's own standard error times the multiple.
     """
     times = np.asarray([t for t in times if np.isfinite(t)], dtype=np.float64)
     if times.size < 3:
@@ -189,11 +189,19 @@ def time_gaps(times) -> tuple[list, float]:
     if steps.size == 0:
         return [], float("nan")
     interval = output_interval(steps)
-    if 2 * np.count_nonzero(np.abs(steps - interval) <= _NEAR * interval) < steps.size:
+    near = np.abs(steps - interval) <= _NEAR * interval
+    if 2 * np.count_nonzero(near) < steps.size:
         return [], interval  # no interval holds half the steps (adaptive output times): nothing to miss
+    # the median of every step near it (the cluster of a part in a thousand may be a handful of steps
+    # of jittered outputs, off by a few per cent: ten intervals would then be off by a third of one)
+    interval = float(np.median(steps[near]))
     ratio = diffs / interval
-    whole = np.abs(ratio - np.round(ratio)) <= _NEAR  # outputs a little late or early: 5 % of one interval
-    jumps = np.flatnonzero((ratio >= 2 - _NEAR) & whole)
+    # outputs a little late or early: 5 % of one interval, and the interval's own error (two standard
+    # errors of that median) times the multiple; never half an interval
+    error = 1.2533 * float(np.std(steps[near])) / np.sqrt(np.count_nonzero(near)) / interval
+    slack = np.minimum(_NEAR + 2.0 * error * ratio, 0.45)
+    whole = np.abs(ratio - np.round(ratio)) <= slack
+    jumps = np.flatnonzero((ratio >= 2 - slack) & whole)
     return [(float(times[i]), float(times[i + 1])) for i in jumps], interval
 
 
