@@ -109,3 +109,19 @@ def test_a_block_of_missing_outputs_among_late_outputs_is_a_gap():
         times = [0.1 * k + 0.002 * rng.uniform() for k in range(60) if not 20 <= k < 40]
         gaps, interval = time_gaps(times)
         assert [round(a, 1) for a, _ in gaps] == [1.9] and interval == pytest.approx(0.1, rel=2e-3)
+
+
+def test_an_xdmf_collection_with_a_missing_output_warns(tmp_path, monkeypatch):
+    # the grids' own times, as a folder's files' (audit 6 and review 35: a collection was never checked)
+    import meshio
+
+    monkeypatch.chdir(tmp_path)  # meshio writes the HDF5 file beside the working folder's XDMF file
+    mesh = grid_mesh((4, 4), kind="quad")
+    points = np.c_[mesh.points[:, :2], np.zeros(mesh.n_points)]
+    with meshio.xdmf.TimeSeriesWriter("run.xdmf") as writer:
+        writer.write_points_cells(points, [("quad", mesh.blocks[0].connectivity)])
+        for t in REGULAR:
+            if t != 0.4:
+                writer.write_data(t, cell_data={"c": [np.full(9, 0.5)]})
+    texts = _series_warnings("run.xdmf")
+    assert len(texts) == 1 and "0.3 to 0.5" in texts[0], texts

@@ -377,6 +377,7 @@ class Series:
                 steps.append(StepInfo(i, float(i), "index", path, grid=i))
         if not steps:
             raise SeriesError("the XDMF time collection is empty", where=path, fix="write at least one step")
+        warn_series_gaps([], path, steps)  # from the grids' times, as a folder's from its files'
         return steps
 
     def _from_files(self, files: list[str]) -> list[StepInfo]:
@@ -417,10 +418,8 @@ class Series:
         return np.array([s.time for s in self.steps])
 
     def time_problem(self, chosen=None) -> SeriesError | None:
-        """The first place where the step times do not increase, as an error (None: they increase).
-
-        Steps of unknown time (unreadable files) are left out; with ``chosen`` (step numbers), also those not chosen.
-        """
+        """The first place where the times of the steps ``chosen`` (step numbers; all without) do not increase,
+        as an error, or None; steps of unknown time (unreadable files) are left out."""
         picked = self.steps if chosen is None else [self.steps[i] for i in chosen]
         known = [s for s in picked if np.isfinite(s.time)]
         coarse = coarse_time_share(self.steps) >= RESOLUTION_SHARE
