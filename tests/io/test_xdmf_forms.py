@@ -300,3 +300,45 @@ def test_a_file_included_twice_refused(tmp_path):
         f'<Grid Name="T" GridType="Collection" CollectionType="Temporal">{twice}</Grid></Domain></Xdmf>\n')
     with pytest.raises(SeriesError, match="includes s_0.xmf more than once"):
         Series(str(tmp_path / "run.xmf"))
+
+
+def _gap_warnings(path):
+    import warnings
+
+    with warnings.catch_warnings(record=True) as caught:
+        warnings.simplefilter("always")
+        series = Series(str(path))
+    return series, [str(w.message) for w in caught if "jump" in str(w.message)]
+
+
+def test_a_collection_warns_of_a_missing_output_and_not_of_rounded_text_times(tmp_path, monkeypatch):
+    """A missing output (t = 0.5 of steps 0.1 apart) is warned of in a collection of grids and in one
+    including step files, as in a folder; times written as text with six significant digits (C's %g: t =
+    10 + 0.00014 k shows as 10.0001, 10.0003, ...) are rounded to 1e-4, a share of the interval, so their
+    jumps are no gaps [the times written by hand]."""
+    missing = tuple(round(0.1 * k, 10) for k in range(12) if k != 5)
+    monkeypatch.setitem(globals(), "TIMES", missing)
+    grids, files = tmp_path / "grids", tmp_path / "files"
+    grids.mkdir(), files.mkdir()
+    _, said = _gap_warnings(_write(grids))
+    assert len(said) == 1 and "0.4 to 0.6" in said[0], said
+    for k, t in enumerate(missing):
+        _step_file(files / f"s_{k:04d}.xmf", k, t)
+    include = "".join(f'<xi:include href="s_{k:04d}.xmf" xpointer="xpointer(//Xdmf/Domain/Grid[1])"/>'
+                      for k in range(len(missing)))
+    (files / "run.xmf").write_text('<?xml version="1.0" ?>\n<Xdmf Version="3.0" xmlns:xi="http://www.w3.org/2001/'
+                                   'XInclude"><Domain><Grid Name="T" GridType="Collection" CollectionType="Temporal">'
+                                   f'{include}</Grid></Domain></Xdmf>\n')
+    _, said = _gap_warnings(files / "run.xmf")
+    assert len(said) == 1 and "0.4 to 0.6" in said[0], said
+    rounded = tuple(10 + 0.00014 * k for k in range(30))
+    monkeypatch.setitem(globals(), "TIMES", rounded)
+    text = tmp_path / "text"
+    text.mkdir()
+    path = _write(text)
+    xml = path.read_text()
+    for t in rounded:
+        xml = xml.replace(f'<Time Value="{t!r}"/>', f'<Time Value="{t:g}"/>', 1)
+    path.write_text(xml)
+    series, said = _gap_warnings(path)
+    assert said == [] and series.steps[1].time_resolution == pytest.approx(1e-4)

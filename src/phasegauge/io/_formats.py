@@ -198,7 +198,8 @@ def check_readable(path: str, where: str = "") -> None:
 class StoredTime(float):
     """A step time as a float, with ``resolution``: the gap to the next value its storage holds
     (single precision's spacing at the time; 0 for double precision and for text, whose digits
-    are taken as written)."""
+    are taken as written, except an XDMF grid's time of six significant digits or more: the place
+    of its last digit, as C's ``%g`` rounds)."""
 
     resolution: float = 0.0
 

@@ -361,8 +361,8 @@ class Series:
                 raise InputFileNotFound(f"{len(missing)} of the {len(included)} step files the collection includes "
                                         f"are missing (the first: {os.path.basename(missing[0])})", where=path,
                                         fix="restore them next to the collection's file")
-            steps = self._from_files(included)
-            self.kind = "collection"
+            self.kind, steps = "collection", self._from_files(included)
+            warn_series_gaps(included, path, steps)
             return steps
         self.kind = "collection"
         steps = []
@@ -372,7 +372,7 @@ class Series:
             if t is None and listed is not None:
                 t = listed[i]
             if t is not None:
-                steps.append(StepInfo(i, t, "xdmf", path, grid=i))
+                steps.append(StepInfo(i, t, "xdmf", path, grid=i, time_resolution=getattr(t, "resolution", 0.0)))
             else:
                 steps.append(StepInfo(i, float(i), "index", path, grid=i))
         if not steps:

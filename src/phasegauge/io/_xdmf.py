@@ -179,9 +179,25 @@ def grid_time(grid, where: str = "") -> float | None:
     """
     node = grid.find("Time")
     if node is not None and node.get("Value") is not None:
-        return stored_time(node.get("Value"), where=where, source="in the XDMF <Time Value=...>",
+        time = stored_time(node.get("Value"), where=where, source="in the XDMF <Time Value=...>",
                            fix="write a finite number in the grid's <Time Value=...>")
+        time.resolution = _rounded_text(node.get("Value"))
+        return time
     return None
+
+
+def _rounded_text(text: str) -> float:
+    """The place of the last digit of a time written with six significant digits or more (C's ``%g``
+    writes six: 10.0003 may be any time within 5e-5 of it), else 0 (fewer digits: the time as written)."""
+    mantissa, _, exponent = text.strip().lower().partition("e")
+    digits = mantissa.lstrip("+-").replace(".", "").lstrip("0")
+    if len(digits) < 6:
+        return 0.0
+    decimals = len(mantissa.partition(".")[2])
+    try:
+        return 10.0 ** (int(exponent or 0) - decimals)
+    except ValueError:
+        return 0.0
 
 
 def collection_times(path: str, n_grids: int):
