@@ -48,14 +48,15 @@ def subprocess_env(*, malloc_defaults: bool = False):
 def write_listing(folder, steps) -> str:
     """Write a series of VTU files and the ``run.steps`` listing that names them; return its path.
 
-    ``steps`` yields ``(time, file name, mesh, cell data)``; each step is written with
-    ``phasegauge.meshgen.to_meshio``.
+    ``steps`` yields ``(time, file name, mesh, cell data)`` or ``(..., cell data, point data)`` (either
+    may be None); each step is written with ``phasegauge.meshgen.to_meshio``.
     """
     from phasegauge.meshgen import to_meshio
 
     lines = []
-    for time, name, mesh, cell_data in steps:
-        to_meshio(mesh, cell_data=cell_data).write(os.path.join(folder, name))
+    for time, name, mesh, cell_data, *point_data in steps:
+        to_meshio(mesh, cell_data=cell_data, point_data=point_data[0] if point_data else None).write(
+            os.path.join(folder, name))
         lines.append(f"{time},{name}")
     listing = os.path.join(folder, "run.steps")
     with open(listing, "w") as handle:

@@ -11,6 +11,7 @@ import os
 import numpy as np
 import pytest
 from click.testing import CliRunner
+from conftest import write_listing
 
 from phasegauge import measure
 from phasegauge.cli import main
@@ -53,18 +54,10 @@ def test_a_sphere_and_a_plane_in_3d(kind):
 
 def _series(folder, phi_of, radii, *, on_cells=False, n=120):
     mesh = grid_mesh((n, n), kind="quad")
-    lines = []
-    for k, radius in enumerate(radii):
-        if on_cells:
-            data = {"cell_data": {"phi": phi_of(mesh.cell_centroids, radius)}}
-        else:
-            data = {"point_data": {"phi": phi_of(mesh.coordinates, radius)}}
-        to_meshio(mesh, **data).write(os.path.join(folder, f"ls_{k}.vtu"))
-        lines.append(f"{float(k)},ls_{k}.vtu")
-    listing = os.path.join(folder, "run.steps")
-    with open(listing, "w") as handle:
-        handle.write("\n".join(lines) + "\n")
-    return listing
+    return write_listing(folder, ((float(k), f"ls_{k}.vtu", mesh,
+                                   {"phi": phi_of(mesh.cell_centroids, radius)} if on_cells else None,
+                                   None if on_cells else {"phi": phi_of(mesh.coordinates, radius)})
+                                  for k, radius in enumerate(radii)))
 
 
 def _distance(x, radius):

@@ -7,12 +7,13 @@ import numpy as np
 import pandas as pd
 import pytest
 from click.testing import CliRunner
+from conftest import write_listing
 
 from phasegauge import measure
 from phasegauge.cli import main
 from phasegauge.errors import InputError, MeshWarning, OptionError
 from phasegauge.io import read_line_file, read_measured_file, read_probe_file
-from phasegauge.meshgen import grid_mesh, to_meshio
+from phasegauge.meshgen import grid_mesh
 from phasegauge.run.options import MeasureOptions
 
 TIMES = (0.0, 0.5, 1.0)
@@ -24,19 +25,11 @@ def _field(x, y, t):
 
 def _series(folder, *, kind="triangle", on="point", n=10):
     mesh = grid_mesh((n, n), kind=kind, jitter=0.2, seed=1)
-    lines = []
-    for k, t in enumerate(TIMES):
-        name = f"s_{k}.vtu"
-        if on == "point":
-            data = {"point_data": {"f": _field(mesh.points[:, 0], mesh.points[:, 1], t)}}
-        else:  # a linear field's cell mean is its value at the centroid
-            data = {"cell_data": {"f": _field(mesh.cell_centroids[:, 0], mesh.cell_centroids[:, 1], t)}}
-        to_meshio(mesh, **data).write(os.path.join(folder, name))
-        lines.append(f"{t},{name}")
-    listing = os.path.join(folder, "run.steps")
-    with open(listing, "w") as f:
-        f.write("\n".join(lines) + "\n")
-    return listing
+    x, centre = mesh.points, mesh.cell_centroids  # a linear field's cell mean is its value at the centroid
+    return write_listing(folder, ((t, f"s_{k}.vtu", mesh,
+                                   {"f": _field(centre[:, 0], centre[:, 1], t)} if on != "point" else None,
+                                   {"f": _field(x[:, 0], x[:, 1], t)} if on == "point" else None)
+                                  for k, t in enumerate(TIMES)))
 
 
 def _write(path, text):

@@ -418,12 +418,13 @@ class Series:
         return np.array([s.time for s in self.steps])
 
     def time_problem(self, chosen=None) -> SeriesError | None:
-        """The first place where the times of the steps ``chosen`` (step numbers; all without) do not increase,
-        as an error, or None; steps of unknown time (unreadable files) are left out."""
+        """Where the times of the steps ``chosen`` (step numbers; all without) do not increase, as an error,
+        or None; steps of unknown time (unreadable files) are left out."""
         picked = self.steps if chosen is None else [self.steps[i] for i in chosen]
         known = [s for s in picked if np.isfinite(s.time)]
         coarse = coarse_time_share(self.steps) >= RESOLUTION_SHARE
-        if "index" in {s.time_origin for s in known} and {s.time_origin for s in known} & {"file", "xdmf"}:
+        origins = {s.time_origin for s in known}
+        if "index" in origins and origins & {"file", "xdmf"}:
             first = next(s for s in known if s.time_origin == "index")
             return SeriesError(f"some steps store their times and others do not (step {first.index} is the first "
                                "that does not): stored times and step numbers would be one time axis",

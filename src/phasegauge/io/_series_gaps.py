@@ -57,7 +57,7 @@ def restart_problem(known: list, k: int) -> SeriesError | None:
 
 def repeated_times_fix(known: list) -> str:
     """The fix for a time written twice in a row: how many times repeat, and the ways to keep one copy."""
-    times, counts = np.unique([s.time for s in known], return_counts=True)
+    _, counts = np.unique([s.time for s in known], return_counts=True)
     repeated = int(np.count_nonzero(counts > 1))
     head = f"{repeated} times occur twice or more (a restart writes steps again): " if repeated > 1 else ""
     return head + ("remove the repeated step, choose the steps (--steps, --time-from, --time-to) or give a 'time,path' "

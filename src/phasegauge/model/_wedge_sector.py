@@ -54,8 +54,7 @@ class WedgeSector:
                 "angle_degrees": float(self.angle)}
 
     def words(self) -> str:
-        others = [a for a in "xyz" if a != "xyz"[self.axis]]
-        at = ", ".join(f"{a} = {v:.6g}" for a, v in zip(others, self.through))
+        at = ", ".join(f"{a} = {v:.6g}" for a, v in self.record()["through"].items())
         return f"a {self.angle:.3g}-degree wedge about a line along {'xyz'[self.axis]} ({at}), one cell thick"
 
 
