@@ -395,6 +395,24 @@ def test_droplet_across_periodic_boundary(kind):
     assert not row["spanning"]
 
 
+def test_cells_joined_across_a_periodic_boundary_are_as_far_apart_as_inside():
+    """The band's paths across a periodic boundary take the centroids' distance less the period: on
+    squares cut into two right triangles, neighbours across a side of a square are sqrt(5) / 3 of
+    its side apart (elementary geometry), at the boundary as inside (regression: a cell size, then
+    sqrt(1 / 2) and now 1 of the side, stood in for it)."""
+    from phasegauge.analysis._band_sharing import _across_period
+    from phasegauge.analysis._droplet_graph import periodic_pairs
+
+    n = 10
+    mesh = grid_mesh((n, n), kind="triangle")
+    pairs = periodic_pairs(mesh, 0)[0]
+    assert len(pairs) == n
+    np.testing.assert_allclose(_across_period(mesh, pairs), np.sqrt(5) / 3 / n, rtol=1e-12)
+    inside = mesh.face_pairs[np.abs(np.diff(mesh.cell_centroids[mesh.face_pairs][:, :, 0], axis=1)[:, 0]) > 0.5 / n]
+    np.testing.assert_allclose(np.linalg.norm(np.diff(mesh.cell_centroids[inside], axis=1)[:, 0], axis=1),
+                               np.sqrt(5) / 3 / n, rtol=1e-12)
+
+
 def test_droplet_on_a_corner_of_two_periodic_axes():
     """A sphere at the corner of a box periodic in x and y: four pieces, one droplet (pieces joined
     through a chain of periodic links)."""

@@ -50,9 +50,13 @@ def test_pieces_of_a_split_cell_take_the_whole_cells_size_and_count_once(tmp_pat
     # regression: the pieces were not marked, so each tetrahedron counted as a cell of its own size
     assert split.cell_parents is not None
     assert split.n_whole_cells == whole.n_cells == whole.n_whole_cells == len(mesh.blocks[0])
-    vtk_sizes = pv.read(wedges).compute_cell_sizes()["Volume"] ** (1 / 3)  # VTK's wedge volumes [lib]
-    np.testing.assert_allclose(whole.cell_sizes, vtk_sizes, rtol=1e-12)
-    np.testing.assert_allclose(split.cell_sizes, whole.cell_sizes[split.cell_parents], rtol=1e-12)
+    volumes = pv.read(wedges).compute_cell_sizes()["Volume"]  # VTK's wedge volumes [lib]
+    # a wedge's size is the side of the cube two such wedges fill: the grid's spacing (elementary
+    # geometry); the convex cells, named by no type, take the side of the cube of their volume
+    np.testing.assert_allclose(whole.cell_sizes, (2 * volumes) ** (1 / 3), rtol=1e-12)
+    np.testing.assert_allclose(whole.cell_sizes, 1 / N, rtol=1e-12)
+    vtk_sizes = volumes ** (1 / 3)
+    np.testing.assert_allclose(split.cell_sizes, vtk_sizes[split.cell_parents], rtol=1e-12)
     # some pieces' sizes without the mesh-wide array: the same numbers, and only whole cells' sizes kept
     some = np.arange(0, split.n_cells, 3)
     assert np.array_equal(split.cell_sizes_of(some), split.cell_sizes[some])
@@ -70,14 +74,17 @@ def test_pieces_of_a_split_cell_take_the_whole_cells_size_and_count_once(tmp_pat
 
 def test_interface_resolution_of_split_cells_is_that_of_the_cells(tmp_path):
     wedges, convex, _ = _pair(tmp_path)
-    wedge_size = float(np.median(pv.read(wedges).compute_cell_sizes()["Volume"])) ** (1 / 3)  # VTK [lib]
-    for path in (wedges, convex):
+    volume = float(np.median(pv.read(wedges).compute_cell_sizes()["Volume"]))  # VTK [lib]
+    # the wedges: the side of the cube two of them fill, the grid's spacing; the convex cells split
+    # about their centres: the side of the cube of the whole cell's volume
+    for path, size in ((wedges, (2 * volume) ** (1 / 3)), (convex, volume ** (1 / 3))):
         mesh = Series(path).read(0).mesh
         figures = interface_metrics(mesh, _drop(mesh.points))  # the drop on the points, exact
-        # the cell size along the interface (width over width in cells) is the wedges' own on both
+        # the cell size along the interface (width over width in cells) is the whole cells' on both
         # meshes; the pieces' size was about 1 / 12 ** (1 / 3) of it
         h_interface = figures["interface_width"] / figures["interface_width_cells"]
-        assert h_interface == pytest.approx(wedge_size, rel=1e-9), path
+        assert h_interface == pytest.approx(size, rel=1e-9), path
+    assert (2 * volume) ** (1 / 3) == pytest.approx(1 / N, rel=1e-12)
 
 
 def test_neighbouring_split_cells_share_their_face_centres_and_the_mesh_is_measured(tmp_path):
@@ -106,7 +113,12 @@ def test_pieces_stay_marked_in_a_multiblock_file(tmp_path):
     joined = Series(path).read(0).mesh
     assert joined.cell_parents is not None
     assert joined.n_whole_cells == 2 * len(mesh.blocks[0])
-    np.testing.assert_allclose(joined.cell_sizes, (0.5 / N ** 3) ** (1 / 3), rtol=1e-9)  # every wedge the same
+    # the convex cells' pieces: the cube of the whole cell's volume; the wedges kept whole beside
+    # them: the side of the cube two of them fill, the grid's spacing (elementary geometry)
+    whole = joined.cell_types == "wedge"
+    assert whole.sum() == len(mesh.blocks[0])
+    np.testing.assert_allclose(joined.cell_sizes[~whole], (0.5 / N ** 3) ** (1 / 3), rtol=1e-9)
+    np.testing.assert_allclose(joined.cell_sizes[whole], 1 / N, rtol=1e-9)
 
 
 @pytest.mark.parametrize("kind", ["polygon", "convex"])

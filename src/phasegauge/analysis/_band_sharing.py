@@ -36,6 +36,16 @@ def _face_lengths(mesh: Mesh, local: np.ndarray, nodes: np.ndarray) -> np.ndarra
     return out
 
 
+def _across_period(mesh: Mesh, pairs: np.ndarray) -> np.ndarray:
+    """Centroid distance of cell pairs joined across a periodic boundary: each component of their
+    offset less the whole periods of the mesh's extent in it (the nearest image)."""
+    offset = cell_centroids_of(mesh, pairs[:, 0]) - cell_centroids_of(mesh, pairs[:, 1])
+    lo, hi = mesh.bounds
+    extent = (hi - lo)[list(mesh.plane_axes)[:mesh.dimension]]
+    offset -= extent * np.round(offset / np.where(extent > 0, extent, 1.0))
+    return np.linalg.norm(offset, axis=1)
+
+
 def _grid_order(mesh: Mesh) -> np.ndarray:
     """Mesh cell at each position of a regular grid's cell array (C order), cached."""
     grid = mesh.regular_grid
@@ -225,11 +235,11 @@ def _finish_band_by_distance(mesh, pairs, shared, source_cell, extra_pairs, cell
     local = number[pairs]
     del number, used
     length = _face_lengths(mesh, local, nodes if cells is None else cells[nodes])
-    if extra_pairs.size:  # across a periodic boundary the centroid distance is meaningless: use h
+    if extra_pairs.size:  # across a periodic boundary: the centroids' distance less the period
         on_mesh = pairs if cells is None else cells[pairs]
         key = np.sort(on_mesh, axis=1) @ np.array([mesh.n_cells, 1])
         across = np.isin(key, np.sort(extra_pairs, axis=1) @ np.array([mesh.n_cells, 1]))
-        length[across] = 0.5 * (mesh.cell_sizes_of(on_mesh[across, 0]) + mesh.cell_sizes_of(on_mesh[across, 1]))
+        length[across] = _across_period(mesh, on_mesh[across])
         del on_mesh
     np.maximum(length, 1e-300, out=length)
     graph = sparse.coo_matrix((length, (local[:, 0], local[:, 1])), shape=(nodes.size, nodes.size)).tocsr()

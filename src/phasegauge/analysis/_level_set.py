@@ -36,11 +36,11 @@ def level_set_widths(size: float, low: float, high: float) -> dict:
 def distance_errors(mesh: Mesh, phi_point: np.ndarray) -> dict:
     """``distance_error_median``, ``distance_error_p90``: the volume-weighted median and 90th percentile
     of | |grad phi| - 1 | over the cells that have a corner within :data:`NEAR_CELLS` of their own sizes
-    (measure^(1/dim)) of phi = 0 (the gradient by least squares over each cell's corners: exact for
+    (:attr:`Mesh.cell_sizes`) of phi = 0 (the gradient by least squares over each cell's corners: exact for
     linear phi on simplices). 0 for an exact distance function resolved by the mesh; NaN without such
     cells."""
     phi = np.asarray(phi_point, dtype=np.float64)
-    size = mesh.cell_measures ** (1.0 / mesh.dimension)
+    size = mesh.cell_sizes
     near = np.flatnonzero(corner_extremes(mesh, np.abs(phi)).low <= NEAR_CELLS * size)
     if near.size == 0:
         return {"distance_error_median": float("nan"), "distance_error_p90": float("nan")}

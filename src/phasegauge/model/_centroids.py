@@ -15,10 +15,11 @@ from __future__ import annotations
 import numpy as np
 
 from ._geometry import cell_geometry
+from .cells import CELLS_PER_CUBE
 from .corners import corner_sum
 
-__all__ = ["keeps_centroids", "mesh_geometry", "piece_measures", "cell_centroids_of", "whole_cell_centroids",
-           "add_whole_sums", "zero_measures"]
+__all__ = ["keeps_centroids", "mesh_geometry", "piece_measures", "whole_cell_sizes", "cell_centroids_of",
+           "whole_cell_centroids", "add_whole_sums", "zero_measures"]
 
 #: cells computed at a time (the chunk's corner coordinates and results stay small)
 _CHUNK = 1 << 16
@@ -205,3 +206,30 @@ def zero_measures(measures: np.ndarray, parents: np.ndarray | None = None) -> in
         measures = np.bincount(parents, weights=measures)[np.bincount(parents) > 0]
     scale = float(np.median(measures)) if measures.size else 0.0
     return int(np.sum(measures <= 1e-12 * scale))
+
+
+def whole_cell_sizes(mesh) -> np.ndarray:
+    """The size of each whole cell (numbered by ``mesh.cell_parents``), or cell: (n x measure) **
+    (1 / dimension), n the count of such cells filling a square or cube
+    (:data:`.cells.CELLS_PER_CUBE`; 1 for the rest).
+
+    A cell a reader split about its centre (a polyhedron, a convex point set) takes 1 with its
+    pieces' measure; a cell that is its own one piece (the tetrahedra, wedges and pyramids kept
+    whole beside split polyhedra) takes its kind's count, as in a mesh of no split cells.
+    """
+    measures, parents = mesh.cell_measures, mesh.cell_parents
+    counts = [CELLS_PER_CUBE.get(b.cell_type, 1) for b in mesh.blocks]
+    if parents is None and max(counts) == 1:
+        return measures ** (1.0 / mesh.dimension)
+    if parents is None:
+        per_cell = np.repeat(np.asarray(counts, dtype=np.float64), [len(b) for b in mesh.blocks])
+        return (per_cell * measures) ** (1.0 / mesh.dimension)
+    whole = np.bincount(parents, weights=measures)
+    if max(counts) > 1:
+        pieces = np.bincount(parents, minlength=whole.size)
+        for count, lo, hi in zip(counts, mesh.block_offsets[:-1], mesh.block_offsets[1:]):
+            if count > 1:  # (block by block: no array over all the pieces)
+                own = parents[lo:hi]
+                own = own[pieces[own] == 1]
+                whole[own] *= count
+    return whole ** (1.0 / mesh.dimension)

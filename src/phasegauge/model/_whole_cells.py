@@ -223,7 +223,7 @@ class WholeCells:
         return np.stack([first, table[higher].astype(np.int64)], axis=1)
 
     def cell_sizes_of(self, cells) -> np.ndarray:
-        """measure ** (1 / dimension) of the whole ``cells`` (:meth:`Mesh.cell_sizes_of` of their pieces)."""
+        """The sizes of the whole ``cells`` (:meth:`Mesh.cell_sizes_of` of their pieces)."""
         return self._sizes[cells]
 
     def pieces_of(self, cells: np.ndarray) -> tuple:

@@ -8,7 +8,7 @@ from typing import NamedTuple
 
 import numpy as np
 
-__all__ = ["CELL_DIMENSION", "LINEAR_CORNERS", "FACES", "EDGES", "JoinedPieces"]
+__all__ = ["CELL_DIMENSION", "CELLS_PER_CUBE", "LINEAR_CORNERS", "FACES", "EDGES", "JoinedPieces"]
 
 
 class JoinedPieces(NamedTuple):
@@ -31,6 +31,14 @@ CELL_DIMENSION = MappingProxyType({
     "wedge": 3,
     "pyramid": 3,
 })
+
+#: how many cells of a type fill the square or cube whose side is taken as such a cell's size
+#: (:attr:`Mesh.cell_sizes`: (count x measure) ** (1 / dimension)): a square cut along a diagonal into
+#: 2 triangles, a cube cut about a main diagonal into 6 tetrahedra (Kuhn's split), across a face
+#: diagonal into 2 wedges, into 3 pyramids with their apexes at one corner; 1 for the rest. So a grid
+#: of spacing h split into simplices has cells of size h, as its squares and cubes have, and a
+#: regular tetrahedron and a pyramid with every edge a both have size 2 ** (-1/6) a = 0.89 a
+CELLS_PER_CUBE = MappingProxyType({"triangle": 2, "tetra": 6, "wedge": 2, "pyramid": 3})
 
 #: higher-order and VTK-specific types mapped to a linear type (corner nodes, reordered)
 LINEAR_CORNERS = MappingProxyType({

@@ -24,7 +24,7 @@ from functools import cached_property
 import numpy as np
 
 from ..errors import UnsupportedMeshError
-from ._centroids import cell_centroids_of, mesh_geometry, piece_measures, zero_measures
+from ._centroids import cell_centroids_of, mesh_geometry, piece_measures, whole_cell_sizes, zero_measures
 from ._conversions import corner_sums, linear_point_values
 from ._faces import cell_adjacency, face_pairs, face_topology, grid_face_numbers, grouped_faces, unique_edges
 from ._grouping import index_dtype, unique_ints
@@ -367,10 +367,13 @@ class Mesh:
 
     @property
     def cell_sizes(self) -> np.ndarray:
-        """Characteristic cell length: measure ** (1 / dimension), shape (n_cells,).
+        """Characteristic cell length, shape (n_cells,): the side of the square or cube that
+        :data:`.cells.CELLS_PER_CUBE` such cells fill, (count x measure) ** (1 / dimension); the
+        measure's root alone for quads, hexahedra, polygons and polyhedra.
 
-        Pieces of a cell a reader split (:attr:`cell_parents`) take the whole cell's measure; only
-        the whole cells' sizes are kept, gathered on every read (:meth:`cell_sizes_of`: some cells).
+        So a grid of spacing h has cells of size h, split into simplices or not (measure ** (1/3)
+        of its Kuhn tetrahedra is 0.55 h). Pieces of a cell a reader split (:attr:`cell_parents`) take
+        the whole cell's measure; only the whole cells' sizes are kept (:meth:`cell_sizes_of`: some).
         """
         return self._whole_cell_sizes if self.cell_parents is None else self._whole_cell_sizes[self.cell_parents]
 
@@ -380,11 +383,8 @@ class Mesh:
 
     @cached_property
     def _whole_cell_sizes(self) -> np.ndarray:
-        """measure ** (1 / dimension) of each whole cell (numbered by :attr:`cell_parents`), or cell."""
-        if self.cell_parents is not None:
-            whole = np.bincount(self.cell_parents, weights=self.cell_measures)
-            return whole ** (1.0 / self.dimension)
-        return self.cell_measures ** (1.0 / self.dimension)
+        """The size (:attr:`cell_sizes`) of each whole cell (numbered by :attr:`cell_parents`), or cell."""
+        return whole_cell_sizes(self)
 
     @cached_property
     def n_whole_cells(self) -> int:
