@@ -177,6 +177,9 @@ def inspect(path, as_json, scan, sort_by_time):
 @click.option("--densities", default=None, help="Densities of the measured and the other phase, RHO1,RHO2.")
 @click.option("--diffusivity", type=float, default=None,
               help="Physical diffusivity or mobility to compare the numerical one with.")
+@click.option("--interface-kind", "interface_kind", type=click.Choice(["sharp", "diffuse"]),
+              help="The run's interface kind as you know it (volume-of-fluid: sharp; phase-field: diffuse), in "
+                   "place of the kind read from its thickness.")
 @click.option("--box", default=None, help="Region for the mixing figures: xmin,xmax,ymin,ymax[,zmin,zmax].")
 @click.option("--section-axis", "section_axis", type=click.Choice(["x", "y", "z"]), default=None,
               help="Cross-section profiles along this axis (mixing length).")
@@ -228,7 +231,8 @@ def inspect(path, as_json, scan, sort_by_time):
 def measure(path, field, value_range, phase, level, velocity, field_location, sort_by_time, out, steps, time_from,
             time_to, every, analyses,
             adjacency, periodic,
-            ignore_remerge_within, densities, diffusivity, box, section_axis, section_count, section_positions,
+            ignore_remerge_within, densities, diffusivity, interface_kind, box, section_axis, section_count,
+            section_positions,
             mixing_target, segregation_scale, drift_tolerance, workers, threads, scheduler, resume, overwrite, strict,
             keep_3d, level_set,
             contours, snapshots, plot_format, keep_cache, quiet, probe_file, line_file, measured_file,
@@ -246,7 +250,8 @@ def measure(path, field, value_range, phase, level, velocity, field_location, so
         analyses=tuple(a.strip() for a in analyses.split(",") if a.strip()), adjacency=adjacency,
         periodic=tuple(a.strip() for a in periodic.split(",") if a.strip()),
         ignore_remerge_within=ignore_remerge_within, densities=_floats(densities, "--densities", 2),
-        diffusivity=diffusivity, box=_box(box), section_axis=section_axis, section_count=section_count,
+        diffusivity=diffusivity, interface_kind=interface_kind, box=_box(box), section_axis=section_axis,
+        section_count=section_count,
         section_positions=_floats(section_positions, "--section-positions"), mixing_target=mixing_target,
         segregation_scale=segregation_scale,
         drift_tolerance=drift_tolerance, strict=strict, field_location=field_location or "auto",
@@ -449,6 +454,10 @@ def samples(directory, only, overwrite, list_names):
 @click.option("--level-set-a", "level_set_a", is_flag=True, help="The first run's field is a level set (as measure's "
               "--level-set).")
 @click.option("--level-set-b", "level_set_b", is_flag=True, help="The second run's field is a level set.")
+@click.option("--interface-kind-a", "interface_kind_a", type=click.Choice(["sharp", "diffuse"]),
+              help="The first run's interface kind as you know it (as measure's --interface-kind).")
+@click.option("--interface-kind-b", "interface_kind_b", type=click.Choice(["sharp", "diffuse"]),
+              help="The second run's interface kind as you know it.")
 @click.option("--out", "-o", "out", required=True, help="Output folder.")
 @click.option("--overwrite", is_flag=True, help="Replace an existing output folder.")
 @click.option("--workers", "-j", type=int, default=1, show_default=True, help="Local worker processes.")
@@ -458,7 +467,8 @@ def samples(directory, only, overwrite, list_names):
 @click.option("--quiet", "-q", is_flag=True, help="No progress display.")
 def compare(path_a, path_b, field_a, field_b, range_a, range_b, phase_a, phase_b, velocity_a, velocity_b,
             label_a, label_b, level, time_tolerance, spacing, rising_bubble, reference_table, field_location,
-            sort_by_time, level_set_a, level_set_b, out, overwrite, workers, threads, quiet):
+            sort_by_time, level_set_a, level_set_b, interface_kind_a, interface_kind_b, out, overwrite, workers,
+            threads, quiet):
     """Compare two runs of the same case (for example diffuse versus sharp interface)."""
     from .run.compare import RunSpec, compare_runs
     from .model.indicator import parse_range
@@ -466,9 +476,9 @@ def compare(path_a, path_b, field_a, field_b, range_a, range_b, phase_a, phase_b
 
     where = field_location or "auto"
     first = RunSpec(path_a, field_a, parse_range(range_a), phase_a, velocity_a, label_a, where, sort_by_time,
-                    level_set_a)
+                    level_set_a, interface_kind_a)
     second = RunSpec(path_b, field_b, parse_range(range_b), phase_b, velocity_b, label_b, where, sort_by_time,
-                     level_set_b)
+                     level_set_b, interface_kind_b)
     with output_transaction(out):
         result = compare_runs(first, second, out=out, overwrite=overwrite, level=level,
                               time_tolerance=time_tolerance, spacing=spacing, reference_table=reference_table,

@@ -17,6 +17,7 @@ A measure recipe::
     [interface]                # optional tables; leaving a table out keeps the defaults
     level = 0.5
     diffusivity = 1e-4         # physical diffusivity or mobility for the audit
+    interface_kind = "sharp"   # optional: "sharp" (volume-of-fluid) or "diffuse", in place of the kind read
     contours = true            # write the interface of every step
 
     [droplets]
@@ -99,7 +100,7 @@ _INPUT = {"path": str, "field": str, "range": list, "phase": str, "velocity": st
 RECIPE_SCHEMA = {
     "input": {**_INPUT, "keep_3d": bool, "steps": str, "time_from": (int, float), "time_to": (int, float),
               "every": int},
-    "interface": {"level": (int, float), "diffusivity": (int, float), "contours": bool},
+    "interface": {"level": (int, float), "diffusivity": (int, float), "interface_kind": str, "contours": bool},
     "droplets": {"adjacency": str, "periodic": list, "ignore_remerge_within": int},
     "mixing": {"box": list, "section_axis": str, "section_count": int, "section_positions": list,
                "mixing_target": (int, float), "segregation_scale": bool},
@@ -120,8 +121,8 @@ CAMPAIGN_SCHEMA = {**RECIPE_SCHEMA, "campaign": {"parameter": str, "unit": str}}
 RUN_ENTRY = {"path": str, "parameter": (int, float), "label": str}
 
 COMPARE_SCHEMA = {
-    "first": _INPUT,
-    "second": _INPUT,
+    "first": {**_INPUT, "interface_kind": str},
+    "second": {**_INPUT, "interface_kind": str},
     "compare": {"time_tolerance": (int, float), "spacing": (int, float), "level": (int, float),
                 "reference_table": str, "rising_bubble": bool},
     "run": {"workers": int, "threads": int, "strict": bool},
@@ -245,7 +246,8 @@ def load_recipe(path) -> dict:
 #: recipe entry -> the measure option it sets (values are checked one entry at a time)
 _MEASURE_OPTION = {("input", "field"): "field", ("input", "range"): "range", ("input", "phase"): "phase",
                    ("input", "velocity"): "velocity", ("interface", "level"): "level",
-                   ("interface", "diffusivity"): "diffusivity", ("droplets", "adjacency"): "adjacency",
+                   ("interface", "diffusivity"): "diffusivity", ("interface", "interface_kind"): "interface_kind",
+                   ("droplets", "adjacency"): "adjacency",
                    ("droplets", "periodic"): "periodic",
                    ("droplets", "ignore_remerge_within"): "ignore_remerge_within", ("mixing", "box"): "box",
                    ("mixing", "section_axis"): "section_axis", ("mixing", "section_count"): "section_count",
@@ -308,6 +310,12 @@ def _check_values(data: dict, kind: str, path: str) -> None:
                 normalize_phase(entries["phase"])
         except OptionError as err:
             raise refuse(table, "range" if "range" in err.what else "phase", err) from None
+        if table != "input" and "interface_kind" in entries:  # a compare run's (measure's: above)
+            try:
+                MeasureOptions(field="c", interface_kind=entries["interface_kind"],
+                               level_set=entries.get("level_set", False))
+            except OptionError as err:
+                raise refuse(table, "interface_kind", err) from None
     run = data.get("run", {})
     for key, check in (("workers", check_workers), ("threads", check_threads)):
         try:
@@ -380,7 +388,8 @@ def measure_arguments(recipe: dict) -> dict:
         analyses=tuple(run.get("analyses", ANALYSES)), adjacency=drops.get("adjacency", "face"),
         periodic=tuple(drops.get("periodic", ())), ignore_remerge_within=drops.get("ignore_remerge_within", 0),
         densities=tuple(cons["densities"]) if "densities" in cons else None,
-        diffusivity=iface.get("diffusivity"), box=tuple(map(tuple, mix["box"])) if "box" in mix else None,
+        diffusivity=iface.get("diffusivity"), interface_kind=iface.get("interface_kind"),
+        box=tuple(map(tuple, mix["box"])) if "box" in mix else None,
         section_axis=mix.get("section_axis"), section_count=mix.get("section_count", 20),
         section_positions=tuple(mix["section_positions"]) if "section_positions" in mix else None,
         mixing_target=mix.get("mixing_target", 0.9), segregation_scale=mix.get("segregation_scale", False),

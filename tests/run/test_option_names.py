@@ -34,6 +34,7 @@ VALUES = {
     "every": (["--every", "2"], "input", "2", 2),
     "level": (["--level", "0.4"], "interface", "0.4", 0.4),
     "diffusivity": (["--diffusivity", "1e-4"], "interface", "1e-4", 1e-4),
+    "interface_kind": (["--interface-kind", "diffuse"], "interface", '"diffuse"', "diffuse"),
     "contours": (["--no-contours"], "interface", "false", False),
     "adjacency": (["--adjacency", "point"], "droplets", '"point"', "point"),
     "periodic": (["--periodic", "x"], "droplets", '["x"]', ("x",)),

@@ -26,8 +26,8 @@ from ..errors import OptionError
 
 __all__ = ["diffusion_audit", "interface_kind", "AUDIT_KEYS", "SHARP_CELLS_ACROSS"]
 
-AUDIT_KEYS = ("interface_kind", "cells_across", "D_num", "D_num_stderr", "D_ratio", "significant",
-              "widening", "r_squared", "variance_0", "width_first", "width_last", "width_growth",
+AUDIT_KEYS = ("interface_kind", "interface_kind_measured", "cells_across", "D_num", "D_num_stderr", "D_ratio",
+              "significant", "widening", "r_squared", "variance_0", "width_first", "width_last", "width_growth",
               "fit_from_time", "n_fit", "n_steps", "verdict")
 
 #: median local 10-90 % thickness (cells) below which a run's interface counts as sharp
@@ -53,9 +53,11 @@ def _weighted_line(x: np.ndarray, y: np.ndarray, w: np.ndarray):
     return my - slope * mx, slope, sxx
 
 
-def _empty(n: int, kind: str = "unknown", cells: float = float("nan"), verdict: str = "") -> dict:
+def _empty(n: int, kind: str = "unknown", cells: float = float("nan"), verdict: str = "",
+           measured: str | None = None) -> dict:
     out = {key: float("nan") for key in AUDIT_KEYS}
-    out.update(interface_kind=kind, cells_across=cells, significant=False, widening=False, n_fit=0, n_steps=n,
+    out.update(interface_kind=kind, interface_kind_measured=measured or kind, cells_across=cells, significant=False,
+               widening=False, n_fit=0, n_steps=n,
                verdict=verdict or f"too few steps with a measured width ({n}) for a diffusivity")
     return out
 
@@ -128,7 +130,8 @@ def _robust_fit(t, v):
 
 def diffusion_audit(times, variances, *, cells_across=None, physical_diffusivity: float | None = None,
                     min_steps: int = 3, growth_threshold: float = 0.05,
-                    confidence: float = 0.95, times_are_indices: bool = False) -> dict:
+                    confidence: float = 0.95, times_are_indices: bool = False,
+                    declared_kind: str | None = None) -> dict:
     """Effective diffusivity of the interface from its variance history.
 
     Parameters
@@ -157,12 +160,16 @@ def diffusion_audit(times, variances, *, cells_across=None, physical_diffusivity
     times_are_indices : bool
         The steps store no times (``times`` are step numbers): ``D_num`` is per step,
         ``D_ratio`` is left out (NaN), and ``note`` says so when a physical diffusivity was given.
+    declared_kind : {'sharp', 'diffuse'}, optional
+        The kind the user knows the run to be: it takes the place of the kind read from
+        ``cells_across`` (which is kept as ``interface_kind_measured``).
 
     Returns
     -------
     dict
         ``interface_kind`` : {'diffuse', 'sharp', 'unknown'}; ``cells_across``:
-        the median local 10-90 % thickness in cells behind it.
+        the median local 10-90 % thickness in cells behind it; ``interface_kind_measured``: the kind
+        that thickness gives (``interface_kind`` too unless one was declared).
         ``D_num`` : float, length^2 / time; half the fitted slope (NaN for a
         sharp interface). ``D_num_stderr`` : its standard error.
         ``D_ratio`` : ``D_num / physical_diffusivity`` (NaN without one or
@@ -249,17 +256,21 @@ def diffusion_audit(times, variances, *, cells_across=None, physical_diffusivity
                           fix="for example 0.05 (5 %)")
     if not (0 < float(confidence) < 1):
         raise OptionError(f"confidence must lie in (0, 1), found {confidence!r}", fix="for example 0.95")
-    kind, median_cells = interface_kind(cells) if cells is not None else ("unknown", float("nan"))
+    if declared_kind not in (None, "sharp", "diffuse"):
+        raise OptionError(f"the declared interface kind must be 'sharp' or 'diffuse', found {declared_kind!r}",
+                          fix="sharp for a volume-of-fluid run, diffuse for a phase-field run")
+    measured, median_cells = interface_kind(cells) if cells is not None else ("unknown", float("nan"))
+    kind = declared_kind or measured
     ok = np.isfinite(t) & np.isfinite(v)
     t, v = t[ok], v[ok]
     cells = cells[ok] if cells is not None else None
     n = int(t.size)
     if n < min_steps or np.ptp(t) <= 0:
-        return _empty(n, kind, median_cells)
+        return _empty(n, kind, median_cells, measured=measured)
     order = np.argsort(t, kind="stable")
     t, v = t[order], v[order]
     start = 0
-    if cells is not None and kind != "sharp":
+    if cells is not None and measured != "sharp":
         resolved = np.flatnonzero(cells[order] >= SHARP_CELLS_ACROSS)
         if resolved.size and n - resolved[0] >= min_steps and np.ptp(t[resolved[0]:]) > 0:
             start = int(resolved[0])
@@ -269,13 +280,15 @@ def diffusion_audit(times, variances, *, cells_across=None, physical_diffusivity
     width_first = float(np.sqrt(first)) if first > 0 else float("nan")
     width_last = float(np.sqrt(last)) if last > 0 else float("nan")
     growth = width_last / width_first - 1.0 if width_first > 0 and np.isfinite(width_last) else float("nan")
-    common = {"interface_kind": kind, "cells_across": median_cells, "width_first": width_first,
-              "width_last": width_last, "width_growth": growth, "fit_from_time": float(tf[0]),
-              "n_fit": int(tf.size), "n_steps": n}
-    if kind == "sharp":
+    common = {"interface_kind": kind, "interface_kind_measured": measured, "cells_across": median_cells,
+              "width_first": width_first, "width_last": width_last, "width_growth": growth,
+              "fit_from_time": float(tf[0]), "n_fit": int(tf.size), "n_steps": n}
+    # a run declared sharp whose thickness reads diffuse is a smeared one: fitted as a diffuse run
+    if kind == "sharp" and measured != "diffuse":
         out = _empty(n, kind, median_cells)
         out.update(common, fit_from_time=float("nan"), n_fit=0)
-        out["verdict"] = (f"sharp interface ({median_cells:.2g} cells across in median): its width is the "
+        how = "" if declared_kind is None else "as declared; "
+        out["verdict"] = (f"sharp interface ({how}{median_cells:.2g} cells across in median): its width is the "
                           f"scheme's reconstruction, no diffusivity inferred (width {100 * growth:+.3g} % "
                           "first to last); a diffuse-interface (phase-field) run this thin would be "
                           "under-resolved: 4 cells across 0.1 < c < 0.9 is common practice")
@@ -304,6 +317,9 @@ def diffusion_audit(times, variances, *, cells_across=None, physical_diffusivity
                    f"{100 * growth:+.3g} % (threshold {100 * float(growth_threshold):.3g} %)")
     if times_are_indices:
         verdict += " (the steps store no times: per step index)"
+    if kind == "sharp":  # declared, and read diffuse
+        verdict = (f"declared sharp, but the interface is {median_cells:.2g} cells across in median, as a smeared "
+                   f"one reads: {verdict}")
     return {
         **common,
         "D_num": D,

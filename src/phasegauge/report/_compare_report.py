@@ -11,7 +11,7 @@ import numpy as np
 from ._files import RUN_MARKER, atomic_write_csv, atomic_write_json, atomic_write_text
 from ._html import Page
 from ._drawing import save_figures
-from ._measure_report import CAUTION, manifest
+from ._measure_report import CAUTION, kind_words, manifest
 
 __all__ = ["write_compare_report", "compare_figures"]
 
@@ -159,6 +159,12 @@ def _kind(run) -> tuple:
     return audit.get("interface_kind", "unknown"), float(audit.get("cells_across", float("nan")))
 
 
+def _kind_said(run) -> str:
+    """A run's interface kind with 'as declared' (and what its thickness reads) where the user gave it."""
+    said = kind_words(run.audit or {}, getattr(run.options, "interface_kind", None))
+    return _kind(run)[0] + (f" ({'; '.join(said)})" if said else "")
+
+
 def _compare_findings(result) -> list:
     """Each run's flags (named by its label), a note when the interfaces are of different kinds, and
     every reference check that failed."""
@@ -166,8 +172,8 @@ def _compare_findings(result) -> list:
              for flag in run.flags]
     kinds = [_kind(run) for run in (result.first, result.second)]
     if {kinds[0][0], kinds[1][0]} == {"diffuse", "sharp"}:
-        shown = "; ".join(f"{label} {kind}, {cells:.2g} cells across" for label, (kind, cells) in
-                          zip(result.labels, kinds))
+        shown = "; ".join(f"{label} {_kind_said(run)}, {cells:.2g} cells across" for label, run, (_, cells) in
+                          zip(result.labels, (result.first, result.second), kinds))
         present = [c for c in METHOD_COLUMNS if f"{c}_a" in result.comparison]
         found.append(f"the interfaces are of different kinds ({shown}): {', '.join(present) or 'the widths'} measure "
                      "each method's interface, so their differences compare the methods, not the flow; where the "
@@ -185,8 +191,9 @@ def _compare_key_figures(result) -> list:
     table = result.comparison
     pairs = [("paired times", len(result.pairs))]
     for label, run in zip(result.labels, (result.first, result.second)):
-        kind, cells = _kind(run)
-        pairs.append((f"interface of {label}", kind + (f", {cells:.2g} cells across" if np.isfinite(cells) else "")))
+        cells = _kind(run)[1]
+        pairs.append((f"interface of {label}", _kind_said(run) + (f", {cells:.2g} cells across"
+                                                                   if np.isfinite(cells) else "")))
     for label, column, how in (("Dice coefficient, lowest", "dice", "min"),
                                ("Hausdorff distance, largest", "hausdorff", "max"),
                                ("mean interface distance, largest", "mean_distance", "max")):

@@ -128,6 +128,16 @@ def _ran(opts) -> list:
     return pairs
 
 
+def kind_words(audit: dict, declared) -> list:
+    """What the report says beside a run's interface kind: 'as declared' where the user gave it, and
+    the kind its thickness reads where that is another."""
+    if not declared:
+        return []
+    measured = audit.get("interface_kind_measured")
+    other = measured in ("diffuse", "sharp") and measured != audit.get("interface_kind")
+    return ["as declared"] + ([f"the thickness reads {measured}"] if other else [])
+
+
 def _options_dict(options) -> dict:
     import dataclasses
 
@@ -169,8 +179,9 @@ def _key_figures(result) -> list:
     audit = result.audit or {}
     if audit.get("interface_kind") in ("diffuse", "sharp"):
         cells = audit.get("cells_across")
-        pairs.append(("interface kind", f"{audit['interface_kind']} ({float(cells):.2g} cells across 10-90 %, "
-                                        "median over steps)"))
+        said = kind_words(audit, getattr(getattr(result, "options", None), "interface_kind", None))
+        pairs.append(("interface kind", f"{audit['interface_kind']} ({'; '.join(said)}{'; ' if said else ''}"
+                                        f"{float(cells):.2g} cells across 10-90 %, median over steps)"))
     if audit.get("verdict"):
         pairs.append(("diffusion audit", audit["verdict"]))
     r_squared = audit.get("r_squared")

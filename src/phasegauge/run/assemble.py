@@ -336,6 +336,7 @@ def assemble(series, results: list, options, *, notes=(), feed: TrackingFeed | N
         cells = steps["interface_cells_across"].to_numpy() if "interface_cells_across" in steps else None
         audit = diffusion_audit(steps["time"].to_numpy(), steps["interface_variance"].to_numpy(),
                                 cells_across=cells, physical_diffusivity=options.diffusivity,
+                                declared_kind=options.interface_kind,
                                 times_are_indices=any(series.steps[int(i)].time_origin == "index"
                                                       for i in steps["step"]))
     from ._level_set_run import level_set_audit, level_set_findings

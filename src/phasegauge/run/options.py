@@ -126,6 +126,10 @@ class MeasureOptions:
         Densities of the measured phase and the other phase, for masses.
     diffusivity : float or None
         Physical diffusivity or mobility to compare the numerical one with.
+    interface_kind : {'sharp', 'diffuse'} or None
+        The run's interface kind as the user knows it (a volume-of-fluid or a phase-field run),
+        taking the place of the kind read from the interface's thickness (None: that kind); the
+        audit keeps the measured one beside it (``interface_kind_measured``).
     box : tuple or None
         ``((xmin, xmax), (ymin, ymax)[, (zmin, zmax)])`` region for mixing figures; a z pair
         that bounds nothing (both ends infinite or beyond 1e300) is dropped, so a 2D box
@@ -211,6 +215,7 @@ class MeasureOptions:
     ignore_remerge_within: int = 0
     densities: tuple | None = None
     diffusivity: float | None = None
+    interface_kind: str | None = None
     box: tuple | None = None
     section_axis: str | None = None
     section_count: int = 20
@@ -302,6 +307,9 @@ class MeasureOptions:
         if self.diffusivity is not None and not float(self.diffusivity) >= 0:
             raise OptionError(f"diffusivity must be non-negative, found {self.diffusivity}",
                               fix="give the physical diffusivity or mobility in length^2/time")
+        if self.interface_kind not in (None, "sharp", "diffuse"):
+            raise OptionError(f"interface kind must be 'sharp' or 'diffuse', found {self.interface_kind!r}",
+                              fix="sharp (volume-of-fluid) or diffuse (phase-field)")
         if not 0.0 < float(self.mixing_target) <= 1.0:
             raise OptionError("mixing target must lie in (0, 1]", fix="0.9 is common practice")
         if self.free_energy is not None:
@@ -386,6 +394,9 @@ def _check_level_set(options) -> None:
         raise OptionError(f"--range {options.range[0]:g},{options.range[1]:g} was given with --level-set", fix=fix)
     if options.level != 0.5:
         raise OptionError(f"--level {options.level:g} was given with --level-set", fix=fix)
+    if options.interface_kind is not None:
+        raise OptionError(f"--interface-kind {options.interface_kind} was given with --level-set",
+                          fix="leave it out: a level set has no width, so no interface kind is read or declared")
     for name, given in (("probes, lines or measured positions", options.probes or options.lines or options.measured),
                         ("a free-energy model", options.free_energy is not None),
                         ("a mixture model", options.model is not None)):
