@@ -458,6 +458,9 @@ def samples(directory, only, overwrite, list_names):
               help="The first run's interface kind as you know it (as measure's --interface-kind).")
 @click.option("--interface-kind-b", "interface_kind_b", type=click.Choice(["sharp", "diffuse"]),
               help="The second run's interface kind as you know it.")
+@click.option("--steps-a", "steps_a", default=None,
+              help="The first run's steps compared, START:STOP:STRIDE (as measure's --steps: one run of a restart).")
+@click.option("--steps-b", "steps_b", default=None, help="The second run's steps compared, START:STOP:STRIDE.")
 @click.option("--out", "-o", "out", required=True, help="Output folder.")
 @click.option("--overwrite", is_flag=True, help="Replace an existing output folder.")
 @click.option("--workers", "-j", type=int, default=1, show_default=True, help="Local worker processes.")
@@ -467,8 +470,8 @@ def samples(directory, only, overwrite, list_names):
 @click.option("--quiet", "-q", is_flag=True, help="No progress display.")
 def compare(path_a, path_b, field_a, field_b, range_a, range_b, phase_a, phase_b, velocity_a, velocity_b,
             label_a, label_b, level, time_tolerance, spacing, rising_bubble, reference_table, field_location,
-            sort_by_time, level_set_a, level_set_b, interface_kind_a, interface_kind_b, out, overwrite, workers,
-            threads, quiet):
+            sort_by_time, level_set_a, level_set_b, interface_kind_a, interface_kind_b, steps_a, steps_b, out,
+            overwrite, workers, threads, quiet):
     """Compare two runs of the same case (for example diffuse versus sharp interface)."""
     from .run.compare import RunSpec, compare_runs
     from .model.indicator import parse_range
@@ -476,9 +479,9 @@ def compare(path_a, path_b, field_a, field_b, range_a, range_b, phase_a, phase_b
 
     where = field_location or "auto"
     first = RunSpec(path_a, field_a, parse_range(range_a), phase_a, velocity_a, label_a, where, sort_by_time,
-                    level_set_a, interface_kind_a)
+                    level_set_a, interface_kind_a, steps_a)
     second = RunSpec(path_b, field_b, parse_range(range_b), phase_b, velocity_b, label_b, where, sort_by_time,
-                     level_set_b, interface_kind_b)
+                     level_set_b, interface_kind_b, steps_b)
     with output_transaction(out):
         result = compare_runs(first, second, out=out, overwrite=overwrite, level=level,
                               time_tolerance=time_tolerance, spacing=spacing, reference_table=reference_table,

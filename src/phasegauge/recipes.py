@@ -121,8 +121,8 @@ CAMPAIGN_SCHEMA = {**RECIPE_SCHEMA, "campaign": {"parameter": str, "unit": str}}
 RUN_ENTRY = {"path": str, "parameter": (int, float), "label": str}
 
 COMPARE_SCHEMA = {
-    "first": {**_INPUT, "interface_kind": str},
-    "second": {**_INPUT, "interface_kind": str},
+    "first": {**_INPUT, "interface_kind": str, "steps": str},
+    "second": {**_INPUT, "interface_kind": str, "steps": str},
     "compare": {"time_tolerance": (int, float), "spacing": (int, float), "level": (int, float),
                 "reference_table": str, "rising_bubble": bool},
     "run": {"workers": int, "threads": int, "strict": bool},
@@ -310,12 +310,12 @@ def _check_values(data: dict, kind: str, path: str) -> None:
                 normalize_phase(entries["phase"])
         except OptionError as err:
             raise refuse(table, "range" if "range" in err.what else "phase", err) from None
-        if table != "input" and "interface_kind" in entries:  # a compare run's (measure's: above)
+        for key in ("interface_kind", "steps") if table != "input" else ():  # a compare run's (measure's: above)
             try:
-                MeasureOptions(field="c", interface_kind=entries["interface_kind"],
-                               level_set=entries.get("level_set", False))
+                if key in entries:
+                    MeasureOptions(field="c", level_set=entries.get("level_set", False), **{key: entries[key]})
             except OptionError as err:
-                raise refuse(table, "interface_kind", err) from None
+                raise refuse(table, key, err) from None
     run = data.get("run", {})
     for key, check in (("workers", check_workers), ("threads", check_threads)):
         try:

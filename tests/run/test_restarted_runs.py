@@ -136,3 +136,38 @@ def test_the_steps_that_store_their_times_measure_with_a_ratio(tmp_path):
     result = phasegauge.measure(path, "c", steps="1:", diffusivity=1e-3)
     assert result.audit["interface_kind"] == "diffuse"
     assert "per step" not in result.audit["verdict"] and np.isfinite(result.audit["D_ratio"])
+
+
+def test_compare_takes_one_run_of_a_restart_by_its_steps(tmp_path):
+    # the restarted series against a clean one of the same times: refused whole, the same drop step
+    # for step with --steps-a :11 (one copy of each time; the drops are equal, so Dice is 1)
+    from click.testing import CliRunner
+
+    from phasegauge.cli import main
+    from phasegauge.run.compare import RunSpec, compare_runs
+
+    restarted = _vtu_series(tmp_path / "run", FIRST + AGAIN)
+    clean = _vtu_series(tmp_path / "clean", FIRST)
+    with pytest.raises(SeriesError, match="a restart wrote 5 steps again"):
+        compare_runs(RunSpec(restarted, "c"), RunSpec(clean, "c"))
+    result = compare_runs(RunSpec(restarted, "c", steps=":11"), RunSpec(clean, "c"))
+    assert list(result.pairs["time_a"]) == FIRST and list(result.pairs["step_a"]) == list(range(11))
+    assert (result.comparison["dice"] > 1 - 1e-12).all()
+    run = CliRunner().invoke(main, ["compare", restarted, clean, "--field-a", "c", "--field-b", "c",
+                                    "--steps-a", "11:", "-o", str(tmp_path / "c"), "-q"])
+    assert run.exit_code == 0, run.output  # the second run: t = 0.6 to 1.5, paired where the clean one has them
+    import pandas as pd
+
+    pairs = pd.read_csv(tmp_path / "c" / "pairs.csv")
+    assert list(pairs["time_a"]) == AGAIN[:5] and list(pairs["step_a"]) == list(range(11, 16))
+    with pytest.raises(phasegauge.errors.OptionError):
+        RunSpec(restarted, "c", steps="a:b")
+    recipe = tmp_path / "c.toml"
+    recipe.write_text(f'[first]\npath = "{restarted}"\nfield = "c"\nsteps = ":11"\n[second]\npath = "{clean}"\n'
+                      f'field = "c"\n[output]\nfolder = "{tmp_path / "r"}"\n')
+    run = CliRunner().invoke(main, ["run", str(recipe), "-q"])
+    assert run.exit_code == 0, run.output
+    assert list(pd.read_csv(tmp_path / "r" / "pairs.csv")["step_a"]) == list(range(11))
+    recipe.write_text(recipe.read_text().replace('":11"', '"x"'))
+    run = CliRunner().invoke(main, ["run", str(recipe), "-q"])
+    assert run.exit_code != 0 and "[first] steps" in run.output

@@ -49,12 +49,14 @@ class RunSpec:
     sort_by_time: bool = False  # order the steps by the times in their files
     level_set: bool = False  # the field is a level set (MeasureOptions.level_set)
     interface_kind: str | None = None  # 'sharp' or 'diffuse' as the user knows it (MeasureOptions.interface_kind)
+    steps: str | None = None  # the steps compared, START:STOP:STRIDE (MeasureOptions.steps: one run of a restart)
 
     value_range = MeasureOptions.value_range  # the old name of range (warns), as on the options
 
     def __post_init__(self):  # refused before any run is measured, as the options would refuse it
-        if self.interface_kind is not None or self.level_set:
-            MeasureOptions(field=self.field, level_set=self.level_set, interface_kind=self.interface_kind)
+        if self.interface_kind is not None or self.level_set or self.steps is not None:
+            MeasureOptions(field=self.field, level_set=self.level_set, interface_kind=self.interface_kind,
+                           steps=self.steps)
 
 
 @dataclass
@@ -163,7 +165,7 @@ def _compare_runs(first, second, *, out, overwrite, level, time_tolerance, spaci
         options = MeasureOptions(field=spec.field, range=spec.range, phase=spec.phase, level=level,
                                  velocity=spec.velocity, field_location=spec.field_location,
                                  sort_by_time=spec.sort_by_time, level_set=spec.level_set,
-                                 interface_kind=spec.interface_kind)
+                                 interface_kind=spec.interface_kind, steps=spec.steps)
         res = measure(spec.path, options=plan.options(options, k), workers=workers, threads=threads, progress=progress,
                       snapshots=0,
                       progress_label=f"steps of {labels[k]}")
@@ -255,7 +257,8 @@ def compare_arguments(recipe: dict) -> dict:
         return RunSpec(path=t["path"], field=t["field"], range=parse_range(t.get("range", (0, 1))),
                        phase=t.get("phase", "upper"), velocity=t.get("velocity"), label=t.get("label", table),
                        field_location=t.get("field_location", "auto"), sort_by_time=t.get("sort_by_time", False),
-                       level_set=t.get("level_set", False), interface_kind=t.get("interface_kind"))
+                       level_set=t.get("level_set", False), interface_kind=t.get("interface_kind"),
+                       steps=t.get("steps"))
 
     c = recipe.get("compare", {})
     run = recipe.get("run", {})
