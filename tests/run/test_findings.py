@@ -44,8 +44,8 @@ def test_a_drift_finding_words_its_figures():
     options = MeasureOptions(field="c", drift_tolerance=1e-3)
     (drift,) = findings(steps, pd.DataFrame(), {}, options, [])
     assert drift == Finding("phase_volume_drift", "warning",
-                            "phase volume drifts by up to 2 % (tolerance 0.1 % of the first step's phase volume)",
-                            {"largest_drift": 0.02, "tolerance": 1e-3})
+                            "phase volume drifts by up to -2 % (lost; tolerance 0.1 % of the first step's phase volume)",
+                            {"largest_drift": 0.02, "signed_drift": -0.02, "tolerance": 1e-3})
 
 
 # Tolerances scaled to round-off (README, "Findings and their tolerances"): an overshoot volume

@@ -201,7 +201,9 @@ def open_boundary_flux(mesh: Mesh, velocity, c=None, *, tolerance: float = OPEN_
     not counted.
 
     *Velocity on points* (no cell values): a face is open where u.n at its
-    centre (the mean of its corners) exceeds the tolerance; the flux over
+    centre (the mean of its corners) exceeds the tolerance and is at least a
+    tenth of the tangential speed there (point values averaged from the cells
+    beside a wall carry a small u.n that is not a flux); the flux over
     the open faces integrates the linear point fields exactly on each piece
     (int f g = |S| (sum f_i g_i + sum f_i sum g_i) / (k (k + 1)) on a
     simplex with k corners); c on cells takes the owner cell's value.
@@ -223,7 +225,11 @@ def open_boundary_flux(mesh: Mesh, velocity, c=None, *, tolerance: float = OPEN_
     if u_location == "point":
         un = np.einsum("nkd,nd->nk", u[pieces], unit)
         un = np.where(np.isfinite(un), un, 0.0)
-        is_open = np.abs(un.mean(axis=1)) > threshold
+        # as for cells, flow along the face is a wall's: point values averaged from the cells beside a
+        # wall carry a small u.n (of the order of h over the flow's length) that is not a flux
+        normal = un.mean(axis=1)
+        tangential = np.linalg.norm(np.nan_to_num(u[pieces].mean(axis=1)) - normal[:, None] * unit, axis=1)
+        is_open = (np.abs(normal) > threshold) & (np.abs(normal) >= WALL_RATIO * tangential)
     else:
         un_cell, is_open = _open_cell_faces(mesh, u, owners, unit, centre, threshold)
         un = np.repeat(un_cell[:, None], k, axis=1)

@@ -23,6 +23,7 @@ import numpy as np
 from ..errors import (AnalysisError, InputError, PhasegaugeError, SeriesError, SeriesWarning, SkippedStepWarning,
                       collapse_warnings)
 from ._boundary_findings import boundary_reach_finding, resolution_finding
+from ._drift_findings import drift_findings
 from .options import STEP_COLUMNS
 
 __all__ = ["Finding", "TrackingFeed", "assemble", "findings"]
@@ -386,18 +387,6 @@ ROUNDOFF_VOLUME = 1e-9
 WIDTH_TOLERANCE = 0.03
 
 
-def _left_out_share(steps, first: float) -> tuple[np.ndarray, np.ndarray]:
-    """Per step, what the cells left out for non-finite values could hold (c at most 1 in them) over
-    the first step's phase volume: those of the step itself (a change down to minus this is no drift)
-    and those of the first step (up to plus this); zeros at the first step and without such cells."""
-    if "nonfinite_volume" not in steps or not len(steps) or first <= 0:
-        return np.zeros(len(steps)), np.zeros(len(steps))
-    left = np.nan_to_num(steps["nonfinite_volume"].to_numpy(dtype=float), nan=0.0) / first
-    below, above = left.copy(), np.full(left.size, left[0])
-    below[0] = above[0] = 0.0  # the first step against itself
-    return below, above
-
-
 def _worst(steps, column, how=np.nanmax) -> float:
     values = np.abs(steps[column].to_numpy(dtype=float)) if column in steps and len(steps) else np.zeros(0)
     return float(how(values)) if np.isfinite(values).any() else 0.0
@@ -410,7 +399,8 @@ def findings(steps, droplets, audit: dict, options, skipped: list, *, dimension:
     mesh one cell thick measured per unit depth are 2): the Gibbs-Thomson shift of the bulk
     plateaus' note needs it (None: no expected shift).
 
-    Tolerances: overshoot above ``ROUNDOFF_VOLUME`` (1e-9) x the domain volume; drift above
+    Tolerances: overshoot above ``ROUNDOFF_VOLUME`` (1e-9) x the domain volume; drift (in an open
+    domain, what the boundary flow does not account for: :func:`._drift_findings.drift_findings`) above
     ``options.drift_tolerance`` relative to the first step's phase volume, never below the same
     round-off floor (1e-9 x domain volume / phase volume); the resolution rule (4 cells across
     0.1 < c < 0.9, on more than 10 % of the interface) only for a diffuse interface.
@@ -431,45 +421,7 @@ def findings(steps, droplets, audit: dict, options, skipped: list, *, dimension:
         found.append(Finding("diffusivity_per_step", "warning", audit["note"], {}))
     open_domain = "open_boundary" in steps and bool(steps["open_boundary"].astype(bool).any())
     domain = _worst(steps, "domain_volume")
-    if "phase_volume_drift" in steps:
-        worst = _worst(steps, "phase_volume_drift")
-        first = abs(float(steps["phase_volume"].iat[0])) if "phase_volume" in steps and len(steps) else 0.0
-        floor = ROUNDOFF_VOLUME * domain / first if first > 0 else 0.0
-        tolerance = max(float(options.drift_tolerance), floor)
-        # cells with NaN or Inf are left out of a step's phase volume: c at most 1 there, a step's
-        # change with no drift lies between minus what its own cells left out could hold and plus
-        # what the first step's could; only the drift beyond that is judged
-        drift = steps["phase_volume_drift"].to_numpy(dtype=float)
-        below, above = _left_out_share(steps, first)
-        # what the cells left out could account for at the steps that changed beyond the tolerance
-        changed = np.abs(np.nan_to_num(drift)) > tolerance
-        bound = np.where(drift > 0, above, below)[changed] if changed.any() else np.zeros(1)
-        beyond = np.maximum(np.maximum(drift - above, -drift - below), 0.0)
-        beyond = float(np.nanmax(beyond)) if np.isfinite(beyond).any() else 0.0
-        if worst > tolerance and beyond <= tolerance:
-            found.append(Finding("phase_volume_left_out", "note",
-                                 f"phase volume changes by up to {100 * worst:.3g} %, no more than the cells left out "
-                                 f"(non-finite values) could account for (up to {100 * float(bound.max()):.3g} % of "
-                                 "the first step's phase volume): not judged as drift",
-                                 {"largest_drift": worst, "largest_left_out": float(bound.max()),
-                                  "tolerance": tolerance}))
-        elif worst > tolerance:
-            text = (f"phase volume drifts by up to {100 * worst:.3g} % (tolerance "
-                    f"{100 * tolerance:.3g} % of the first step's phase volume)")
-            figures = {"largest_drift": worst, "tolerance": tolerance}
-            if (below + above).any():
-                text += f"; {100 * beyond:.3g} % beyond what the cells left out (non-finite values) could account for"
-                figures["largest_drift_beyond_left_out"] = beyond
-            if open_domain and "phase_volume_drift_closed" in steps:
-                closed = _worst(steps, "phase_volume_drift_closed")
-                text += (f"; the domain has open boundaries, so this includes what crossed them: "
-                         f"{100 * closed:.3g} % is left after adding the outflow back")
-                figures["largest_drift_closed"] = closed
-            found.append(Finding("phase_volume_drift", "warning", text, figures))
-    if open_domain:
-        found.append(Finding("open_boundary", "note",
-                             "the domain has inflow or outflow boundaries: phase-volume drift includes what crossed "
-                             "them (phase_volume_drift_closed adds it back)"))
+    found += drift_findings(steps, options, open_domain, ROUNDOFF_VOLUME * domain)
     if "overshoot_volume" in steps:
         worst = _worst(steps, "overshoot_volume")
         tolerance = ROUNDOFF_VOLUME * domain

@@ -365,6 +365,11 @@ def _equilibrium(step, mesh, ind, options, interface_size) -> dict:
     """Chemical potential spread, free energy and tension of the field in the model's own variable."""
     from ..analysis.thermo import equilibrium_metrics
 
+    grid = mesh.regular_grid
+    if grid is None or not grid.uniform:  # the Laplacian's stencil needs one spacing per axis
+        warnings.warn(MeshWarning("the free energy, tension and chemical potential (--free-energy) need a uniform "
+                                  "regular grid, which this mesh is not: their columns are left empty; sample the "
+                                  "field onto such a grid", where=step.info.where), stacklevel=2)
     lo, hi = ind.range
     c = ind.cell if ind.phase == "upper" else 1.0 - ind.cell
     field = lo + (hi - lo) * c  # the field as written (the indicator maps lo -> 0, hi -> 1)

@@ -1,0 +1,119 @@
+"""Findings of the phase volume over the steps: drift in a closed domain; in an open one, what the
+boundary flow does not account for."""
+
+from __future__ import annotations
+
+import numpy as np
+
+__all__ = ["drift_findings", "outflow_allowance"]
+
+
+def outflow_allowance(steps) -> np.ndarray:
+    """Per step, how far the trapezoidal outflow (``phase_volume_outflow``) may be from the true time
+    integral of ``boundary_phase_outflow``: half the change of the rate times the interval, summed
+    over the intervals so far (exact bounds where the rate is monotone between outputs: the integral
+    then lies between the left and the right rectangles, the trapezoid midway)."""
+    if "boundary_phase_outflow" not in steps or "time" not in steps or not len(steps):
+        return np.zeros(len(steps))
+    rate = np.nan_to_num(steps["boundary_phase_outflow"].to_numpy(dtype=float))
+    t = steps["time"].to_numpy(dtype=float)
+    return np.concatenate([[0.0], np.cumsum(0.5 * np.abs(np.diff(rate)) * np.abs(np.diff(t)))])
+
+
+def _left_out_share(steps, first: float) -> tuple[np.ndarray, np.ndarray]:
+    """Per step, what the cells left out for non-finite values could hold (c at most 1 in them) over
+    the first step's phase volume: those of the step itself (a change down to minus this is no drift)
+    and those of the first step (up to plus this); zeros at the first step and without such cells."""
+    if "nonfinite_volume" not in steps or not len(steps) or first <= 0:
+        return np.zeros(len(steps)), np.zeros(len(steps))
+    left = np.nan_to_num(steps["nonfinite_volume"].to_numpy(dtype=float), nan=0.0) / first
+    below, above = left.copy(), np.full(left.size, left[0])
+    below[0] = above[0] = 0.0  # the first step against itself
+    return below, above
+
+
+def drift_findings(steps, options, open_domain: bool, floor_volume: float) -> list:
+    """The phase-volume findings, judged against ``options.drift_tolerance`` (relative) and never
+    below ``floor_volume`` (round-off, in volume units).
+
+    A closed domain: the drift from the first step (``phase_volume_drift``; what the cells left out
+    for non-finite values could hold is not judged). An open one: the drift the boundary flow does
+    not account for (``phase_volume_drift_closed``), beyond what integrating the outflow between
+    outputs may miss (:func:`outflow_allowance`); a change the flow accounts for is a note. Either
+    relative to the first step's phase volume, or, where that is 0 (a channel that starts empty, a
+    drop that appears), to the largest phase volume of the run.
+    """
+    from .assemble import Finding
+
+    if "phase_volume_drift" not in steps or not len(steps):
+        return []
+    change = steps["phase_volume_drift"].to_numpy(dtype=float)  # relative to the first step's phase volume
+    volume = steps["phase_volume"].to_numpy(dtype=float) if "phase_volume" in steps else None
+    reference = abs(float(volume[0])) if volume is not None else 1.0
+    against = "the first step's phase volume"
+    if not reference > 0:  # none at the first step: the change against the largest phase volume
+        reference = float(np.nanmax(np.abs(volume))) if np.isfinite(volume).any() else 0.0
+        if not reference > 0:
+            return []
+        change = (volume - volume[0]) / reference
+        against = f"the largest phase volume, {reference:.4g}: the first step holds none"
+    tolerance = max(float(options.drift_tolerance), floor_volume / reference if volume is not None else 0.0)
+    if open_domain and "phase_volume_outflow" in steps:
+        return _open_findings(steps, change, reference, tolerance, against, Finding)
+    worst = float(np.nanmax(np.abs(change))) if np.isfinite(change).any() else 0.0
+    if not worst > tolerance:
+        return []
+    # cells with NaN or Inf are left out of a step's phase volume: c at most 1 there, a step's
+    # change with no drift lies between minus what its own cells left out could hold and plus
+    # what the first step's could; only the drift beyond that is judged
+    below, above = _left_out_share(steps, reference)
+    changed = np.abs(np.nan_to_num(change)) > tolerance
+    bound = np.where(change > 0, above, below)[changed] if changed.any() else np.zeros(1)
+    beyond = np.maximum(np.maximum(change - above, -change - below), 0.0)
+    beyond = float(np.nanmax(beyond)) if np.isfinite(beyond).any() else 0.0
+    if beyond <= tolerance:
+        return [Finding("phase_volume_left_out", "note",
+                        f"phase volume changes by up to {100 * worst:.3g} %, no more than the cells left out "
+                        f"(non-finite values) could account for (up to {100 * float(bound.max()):.3g} % of "
+                        f"{against}): not judged as drift",
+                        {"largest_drift": worst, "largest_left_out": float(bound.max()), "tolerance": tolerance})]
+    signed = float(change[int(np.nanargmax(np.abs(change)))])
+    text = (f"phase volume drifts by up to {100 * signed:+.3g} % ({'gained' if signed > 0 else 'lost'}; tolerance "
+            f"{100 * tolerance:.3g} % of {against})")
+    figures = {"largest_drift": worst, "signed_drift": signed, "tolerance": tolerance}
+    if (below + above).any():
+        text += f"; {100 * beyond:.3g} % beyond what the cells left out (non-finite values) could account for"
+        figures["largest_drift_beyond_left_out"] = beyond
+    return [Finding("phase_volume_drift", "warning", text, figures)]
+
+
+def _open_findings(steps, change, reference, tolerance, against, Finding) -> list:
+    """An open domain's findings: the drift left after adding back what crossed the boundaries."""
+    outflow = np.nan_to_num(steps["phase_volume_outflow"].to_numpy(dtype=float))
+    left = change + outflow / reference
+    slack = outflow_allowance(steps) / reference
+    beyond = np.abs(left) - slack
+    worst_change = float(np.nanmax(np.abs(change))) if np.isfinite(change).any() else 0.0
+    i = int(np.nanargmax(beyond)) if np.isfinite(beyond).any() else 0
+    figures = {"largest_drift": worst_change, "largest_drift_closed": float(np.nanmax(np.abs(left))),
+               "integration_allowance": float(slack[i]), "tolerance": tolerance}
+    if np.isfinite(beyond).any() and beyond[i] > tolerance:
+        signed = float(left[i])
+        figures["signed_drift_closed"] = signed
+        text = (f"phase volume is not accounted for by the flow through the open boundaries: after adding back "
+                f"what crossed them, {100 * signed:+.3g} % is {'gained' if signed > 0 else 'lost'} "
+                f"(t = {float(steps['time'].iat[i]):g}; tolerance {100 * tolerance:.3g} % of {against}, and "
+                f"{100 * float(slack[i]):.3g} % for the outflow integrated between outputs); the flow is taken "
+                "from the written velocity and field on the boundary faces, not from the solver's own fluxes")
+        return [Finding("phase_volume_drift", "warning", text, figures),
+                Finding("open_boundary", "note", _OPEN)]
+    text = _OPEN
+    if worst_change > tolerance:
+        text = (f"phase volume changes by up to {100 * worst_change:.3g} % through the open boundaries: the flow "
+                f"through them accounts for it (after adding it back, up to {100 * figures['largest_drift_closed']:.3g}"
+                f" % is left; tolerance {100 * tolerance:.3g} % of {against})")
+    return [Finding("open_boundary", "note", text, figures)]
+
+
+_OPEN = ("the domain has inflow or outflow boundaries: phase-volume drift includes what crossed them "
+         "(phase_volume_drift_closed adds it back)")
