@@ -473,15 +473,23 @@ def compare(path_a, path_b, field_a, field_b, range_a, range_b, phase_a, phase_b
             sort_by_time, level_set_a, level_set_b, interface_kind_a, interface_kind_b, steps_a, steps_b, out,
             overwrite, workers, threads, quiet):
     """Compare two runs of the same case (for example diffuse versus sharp interface)."""
+    from .errors import OptionError
     from .run.compare import RunSpec, compare_runs
     from .model.indicator import parse_range
     from .report._files import output_transaction
 
     where = field_location or "auto"
-    first = RunSpec(path_a, field_a, parse_range(range_a), phase_a, velocity_a, label_a, where, sort_by_time,
-                    level_set_a, interface_kind_a, steps_a)
-    second = RunSpec(path_b, field_b, parse_range(range_b), phase_b, velocity_b, label_b, where, sort_by_time,
-                     level_set_b, interface_kind_b, steps_b)
+    runs = []
+    for flag, values in (("a", (path_a, field_a, parse_range(range_a), phase_a, velocity_a, label_a, where,
+                                sort_by_time, level_set_a, interface_kind_a, steps_a)),
+                         ("b", (path_b, field_b, parse_range(range_b), phase_b, velocity_b, label_b, where,
+                                sort_by_time, level_set_b, interface_kind_b, steps_b))):
+        try:
+            runs.append(RunSpec(*values))
+        except OptionError as err:  # named by the run's own options
+            raise OptionError(f"the {'first' if flag == 'a' else 'second'} run (--steps-{flag}, --interface-kind-"
+                              f"{flag}, --level-set-{flag}): {err.what}", where=err.where, fix=err.fix) from None
+    first, second = runs
     with output_transaction(out):
         result = compare_runs(first, second, out=out, overwrite=overwrite, level=level,
                               time_tolerance=time_tolerance, spacing=spacing, reference_table=reference_table,

@@ -123,3 +123,19 @@ def test_the_compare_report_says_a_kind_was_declared(tmp_path):
     assert "diffuse (as declared; the thickness reads sharp)" in page
     assert json.loads((tmp_path / "c" / "manifest.json").read_text())["interface_kind"] == {
         "first": "sharp", "second": "diffuse"}
+
+
+def test_declared_sharp_with_no_thickness_read_is_fitted_not_silenced():
+    t = np.arange(6.0)
+    variance = 0.01 + 2 * 0.003 * t  # D = 0.003, width +73 % [Crank 1975]
+    audit = diffusion_audit(t, variance, declared_kind="sharp")  # no cells_across: the kind not read
+    assert (audit["interface_kind"], audit["interface_kind_measured"]) == ("sharp", "unknown")
+    assert audit["widening"] and audit["D_num"] == pytest.approx(0.003, rel=1e-9)
+    assert audit["verdict"].startswith("declared sharp (its thickness not read")
+
+
+def test_a_bad_choice_on_the_command_line_names_the_run(tmp_path):
+    listing = _vof_series(tmp_path)
+    result = CliRunner().invoke(main, ["compare", listing, listing, "--field-a", "alpha", "--field-b", "alpha",
+                                       "--steps-b", "x", "-o", str(tmp_path / "c"), "-q"])
+    assert result.exit_code != 0 and "the second run (--steps-b" in result.output

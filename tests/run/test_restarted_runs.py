@@ -171,3 +171,28 @@ def test_compare_takes_one_run_of_a_restart_by_its_steps(tmp_path):
     recipe.write_text(recipe.read_text().replace('":11"', '"x"'))
     run = CliRunner().invoke(main, ["run", str(recipe), "-q"])
     assert run.exit_code != 0 and "[first] steps" in run.output
+
+
+def test_compare_checks_each_runs_steps_before_measuring_and_pairs_only_those(tmp_path, monkeypatch):
+    from phasegauge.errors import OptionError
+    from phasegauge.run import _compare_steps
+    from phasegauge.run.compare import RunSpec, compare_runs
+
+    restarted = _vtu_series(tmp_path / "run", FIRST + AGAIN)
+    clean = _vtu_series(tmp_path / "clean", FIRST)
+    import phasegauge.run.measure as measure_module
+
+    measured = []
+
+    original = measure_module.measure
+    monkeypatch.setattr(measure_module, "measure", lambda *a, **k: measured.append(a[0]) or original(*a, **k))
+    # a choice that leaves no step, or a restart left in the second run: refused before the first is measured
+    with pytest.raises(OptionError, match="widen --steps-b"):
+        compare_runs(RunSpec(clean, "c"), RunSpec(restarted, "c", steps="100:"))
+    with pytest.raises(SeriesError, match="compare: --steps-a, --steps-b"):
+        compare_runs(RunSpec(clean, "c"), RunSpec(restarted, "c"))
+    assert measured == []
+    # the sampling plan pairs only the chosen steps: the restart's copy of t = 0.6 .. 1.0
+    plan = _compare_steps.plan_sampling(phasegauge.io.Series(restarted), phasegauge.io.Series(clean),
+                                        chosen=(list(range(11, 21)), None))
+    assert plan.steps == (tuple(range(11, 16)), tuple(range(6, 11)))

@@ -283,8 +283,9 @@ def diffusion_audit(times, variances, *, cells_across=None, physical_diffusivity
     common = {"interface_kind": kind, "interface_kind_measured": measured, "cells_across": median_cells,
               "width_first": width_first, "width_last": width_last, "width_growth": growth,
               "fit_from_time": float(tf[0]), "n_fit": int(tf.size), "n_steps": n}
-    # a run declared sharp whose thickness reads diffuse is a smeared one: fitted as a diffuse run
-    if kind == "sharp" and measured != "diffuse":
+    # a run declared sharp whose thickness reads diffuse is a smeared one: fitted as a diffuse run (so is
+    # one whose thickness is not read)
+    if kind == "sharp" and measured == "sharp":
         out = _empty(n, kind, median_cells)
         out.update(common, fit_from_time=float("nan"), n_fit=0)
         how = "" if declared_kind is None else "as declared; "
@@ -317,9 +318,11 @@ def diffusion_audit(times, variances, *, cells_across=None, physical_diffusivity
                    f"{100 * growth:+.3g} % (threshold {100 * float(growth_threshold):.3g} %)")
     if times_are_indices:
         verdict += " (the steps store no times: per step index)"
-    if kind == "sharp":  # declared, and read diffuse
+    if kind == "sharp" and measured == "diffuse":  # declared
         verdict = (f"declared sharp, but the interface is {median_cells:.2g} cells across in median, as a smeared "
                    f"one reads: {verdict}")
+    elif kind == "sharp":  # declared, its thickness not read: fitted, so that a widening is not hidden
+        verdict = f"declared sharp (its thickness not read, so fitted as any width history): {verdict}"
     return {
         **common,
         "D_num": D,

@@ -52,7 +52,7 @@ def restart_problem(known: list, k: int) -> SeriesError | None:
         "measures one copy of each time", where=f"{after.path}, step {n}",
         fix=f"measure one run's steps (--steps :{n} up to the restart, --steps {n}: from it; recipe: "
             f"steps = \":{n}\"), or give a 'time,path' listing of the first run's steps before t = {shown[1]} "
-            "and the restart's (compare takes listings)")
+            "and the restart's (compare: --steps-a, --steps-b)")
 
 
 def repeated_times_fix(known: list) -> str:

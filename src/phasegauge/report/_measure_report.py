@@ -180,8 +180,9 @@ def _key_figures(result) -> list:
     if audit.get("interface_kind") in ("diffuse", "sharp"):
         cells = audit.get("cells_across")
         said = kind_words(audit, getattr(getattr(result, "options", None), "interface_kind", None))
-        pairs.append(("interface kind", f"{audit['interface_kind']} ({'; '.join(said)}{'; ' if said else ''}"
-                                        f"{float(cells):.2g} cells across 10-90 %, median over steps)"))
+        said += ([f"{float(cells):.2g} cells across 10-90 %, median over steps"] if np.isfinite(float(cells))
+                 else ["its thickness not read"])
+        pairs.append(("interface kind", f"{audit['interface_kind']} ({'; '.join(said)})"))
     if audit.get("verdict"):
         pairs.append(("diffusion audit", audit["verdict"]))
     r_squared = audit.get("r_squared")

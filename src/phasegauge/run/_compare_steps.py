@@ -95,8 +95,10 @@ def _axis_names(mesh) -> tuple:
     return tuple(AXIS_NAMES[i] for i in mesh.plane_axes[:2]) if mesh.dimension == 2 else AXIS_NAMES
 
 
-def plan_sampling(series_a, series_b, *, spacing=None, time_tolerance=None) -> SamplingPlan:
+def plan_sampling(series_a, series_b, *, spacing=None, time_tolerance=None, chosen=(None, None)) -> SamplingPlan:
     """Predict the paired steps from the series' times and build the grid from their first pair's meshes.
+
+    ``chosen``: the steps of each run that are measured (None: all), so that only they are paired.
 
     Steps whose time is unknown before reading (NaN, or the step index) make the prediction
     unsafe: then every step is sampled. With no predicted pair nothing is sampled. The meshes
@@ -108,7 +110,7 @@ def plan_sampling(series_a, series_b, *, spacing=None, time_tolerance=None) -> S
     try:
         with warnings.catch_warnings():  # the measure runs report each series' warnings
             warnings.simplefilter("ignore", PhasegaugeWarning)
-            steps, first = _predicted_pairs(series_a, series_b, time_tolerance)
+            steps, first = _predicted_pairs(series_a, series_b, time_tolerance, chosen)
             if first is None:
                 return empty
             mesh_a = series_a.read_mesh(first[0])
@@ -122,15 +124,20 @@ def plan_sampling(series_a, series_b, *, spacing=None, time_tolerance=None) -> S
     return SamplingPlan(grid, (mesh_a.signature, mesh_b.signature), steps, _axis_names(mesh_a))
 
 
-def _predicted_pairs(series_a, series_b, time_tolerance):
-    """Steps of each run expected to pair (None: every step) and the first pair (None: no pair)."""
+def _predicted_pairs(series_a, series_b, time_tolerance, chosen=(None, None)):
+    """Steps of each run expected to pair (None: every step) and the first pair (None: no pair), among
+    the ``chosen`` steps of each (None: all)."""
     import pandas as pd
 
-    certain = all(np.all(np.isfinite(s.times)) and "index" not in s.time_origins for s in (series_a, series_b))
+    picked = [list(range(len(s))) if c is None else list(c) for s, c in zip((series_a, series_b), chosen)]
+    times = [[float(s.times[i]) for i in p] for s, p in zip((series_a, series_b), picked)]
+    certain = all(np.all(np.isfinite(t)) and all(s.steps[i].time_origin != "index" for i in p)
+                  for s, t, p in zip((series_a, series_b), times, picked))
     if not certain:
-        return (None, None), (0, 0)
-    pairs, _, _ = cmp.pair_times(pd.Series(series_a.times, index=range(len(series_a))),
-                                 pd.Series(series_b.times, index=range(len(series_b))), tolerance=time_tolerance)
+        first = tuple(p[0] if p else 0 for p in picked)
+        return (None, None), first
+    pairs, _, _ = cmp.pair_times(pd.Series(times[0], index=picked[0]), pd.Series(times[1], index=picked[1]),
+                                 tolerance=time_tolerance)
     if not len(pairs):
         return (), None
     steps = (tuple(int(i) for i in pairs["step_a"]), tuple(int(i) for i in pairs["step_b"]))

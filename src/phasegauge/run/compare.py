@@ -147,6 +147,12 @@ def _compare_runs(first, second, *, out, overwrite, level, time_tolerance, spaci
                     Series(second.path, sort_by_time=second.sort_by_time))
 
     both = open_both()  # discovered once for the output check and the sampling plan
+    try:  # each run's step choice and its times checked before either is measured
+        chosen = tuple(_chosen(spec, series, flag) for spec, series, flag in zip((first, second), both, "ab"))
+    except BaseException:
+        for series in both:
+            series.close()
+        raise
     if out is not None:
         from ..report._files import prepare_output_folder
         from .measure import check_output_place
@@ -159,7 +165,7 @@ def _compare_runs(first, second, *, out, overwrite, level, time_tolerance, spaci
                 series.close()
             raise
         prepare_output_folder(out, overwrite=overwrite, run_key="")
-    plan = plan_sampling(*both, spacing=spacing, time_tolerance=time_tolerance)  # (closes them)
+    plan = plan_sampling(*both, spacing=spacing, time_tolerance=time_tolerance, chosen=chosen)  # (closes them)
     runs = []
     for k, spec in enumerate((first, second)):
         options = MeasureOptions(field=spec.field, range=spec.range, phase=spec.phase, level=level,
@@ -246,6 +252,23 @@ def _reference_quantities(result):
         extra = bubble.drop(columns=[c for c in bubble.columns if c in steps.columns and c != "time"])
         steps = steps.merge(extra, on="time", how="left")
     return steps
+
+
+def _chosen(spec: RunSpec, series, flag: str) -> list:
+    """The steps of one run a comparison measures (its ``steps``), their times checked as measure
+    checks them; an empty choice named by the run's own option."""
+    from ._selection import chosen_steps
+
+    try:
+        picked = chosen_steps(series.times, steps=spec.steps, where=series.path)
+    except OptionError as err:
+        table = "first" if flag == "a" else "second"
+        raise OptionError(err.what, where=err.where, fix=f"widen --steps-{flag} (recipe: steps in [{table}]); see "
+                                                         "'phasegauge inspect'") from None
+    problem = series.time_problem(picked)
+    if problem is not None:
+        raise problem
+    return picked
 
 
 def compare_arguments(recipe: dict) -> dict:
