@@ -196,3 +196,12 @@ def test_compare_checks_each_runs_steps_before_measuring_and_pairs_only_those(tm
     plan = _compare_steps.plan_sampling(phasegauge.io.Series(restarted), phasegauge.io.Series(clean),
                                         chosen=(list(range(11, 21)), None))
     assert plan.steps == (tuple(range(11, 16)), tuple(range(6, 11)))
+
+
+def test_compare_refuses_step_choices_that_share_no_time(tmp_path):
+    from phasegauge.errors import OptionError
+    from phasegauge.run.compare import RunSpec, compare_runs
+
+    clean = _vtu_series(tmp_path / "clean", FIRST)
+    with pytest.raises(OptionError, match=r"share no time \(the first's t = 0 to 0.2, the second's 0.8 to 1\)"):
+        compare_runs(RunSpec(clean, "c", steps=":3"), RunSpec(clean, "c", steps="8:"))

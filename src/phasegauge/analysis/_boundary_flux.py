@@ -203,7 +203,9 @@ def open_boundary_flux(mesh: Mesh, velocity, c=None, *, tolerance: float = OPEN_
     *Velocity on points* (no cell values): a face is open where u.n at its
     centre (the mean of its corners) exceeds the tolerance and is at least a
     tenth of the tangential speed there (point values averaged from the cells
-    beside a wall carry a small u.n that is not a flux); the flux over
+    beside a wall carry a small u.n that is not a flux; near a corner or a
+    stagnation point, where the flow along the wall vanishes too, such a wall
+    can still read open: the drift finding says so); the flux over
     the open faces integrates the linear point fields exactly on each piece
     (int f g = |S| (sum f_i g_i + sum f_i sum g_i) / (k (k + 1)) on a
     simplex with k corners); c on cells takes the owner cell's value.

@@ -32,7 +32,7 @@ def _left_out_share(steps, first: float) -> tuple[np.ndarray, np.ndarray]:
     return below, above
 
 
-def drift_findings(steps, options, open_domain: bool, floor_volume: float) -> list:
+def drift_findings(steps, options, open_domain: bool, floor_volume: float, *, points_only: bool = False) -> list:
     """The phase-volume findings, judged against ``options.drift_tolerance`` (relative) and never
     below ``floor_volume`` (round-off, in volume units).
 
@@ -41,7 +41,8 @@ def drift_findings(steps, options, open_domain: bool, floor_volume: float) -> li
     not account for (``phase_volume_drift_closed``), beyond what integrating the outflow between
     outputs may miss (:func:`outflow_allowance`); a change the flow accounts for is a note. Either
     relative to the first step's phase volume, or, where that is 0 (a channel that starts empty, a
-    drop that appears), to the largest phase volume of the run.
+    drop that appears), to the largest phase volume of the run. ``points_only``: the velocity was on
+    points only (the open domain's warning says that walls can then read open).
     """
     from .assemble import Finding
 
@@ -59,7 +60,7 @@ def drift_findings(steps, options, open_domain: bool, floor_volume: float) -> li
         against = f"the largest phase volume, {reference:.4g}: the first step holds none"
     tolerance = max(float(options.drift_tolerance), floor_volume / reference if volume is not None else 0.0)
     if open_domain and "phase_volume_outflow" in steps:
-        return _open_findings(steps, change, reference, tolerance, against, Finding)
+        return _open_findings(steps, change, reference, tolerance, against, Finding, points_only)
     worst = float(np.nanmax(np.abs(change))) if np.isfinite(change).any() else 0.0
     if not worst > tolerance:
         return []
@@ -87,7 +88,7 @@ def drift_findings(steps, options, open_domain: bool, floor_volume: float) -> li
     return [Finding("phase_volume_drift", "warning", text, figures)]
 
 
-def _open_findings(steps, change, reference, tolerance, against, Finding) -> list:
+def _open_findings(steps, change, reference, tolerance, against, Finding, points_only=False) -> list:
     """An open domain's findings: the drift left after adding back what crossed the boundaries."""
     outflow = np.nan_to_num(steps["phase_volume_outflow"].to_numpy(dtype=float))
     left = change + outflow / reference
@@ -95,19 +96,33 @@ def _open_findings(steps, change, reference, tolerance, against, Finding) -> lis
     beyond = np.abs(left) - slack
     worst_change = float(np.nanmax(np.abs(change))) if np.isfinite(change).any() else 0.0
     i = int(np.nanargmax(beyond)) if np.isfinite(beyond).any() else 0
+    j = int(np.nanargmax(np.abs(left))) if np.isfinite(left).any() else 0
     figures = {"largest_drift": worst_change, "largest_drift_closed": float(np.nanmax(np.abs(left))),
-               "integration_allowance": float(slack[i]), "tolerance": tolerance}
+               "integration_allowance": float(slack[j]), "tolerance": tolerance}
     if np.isfinite(beyond).any() and beyond[i] > tolerance:
         signed = float(left[i])
-        figures["signed_drift_closed"] = signed
+        figures.update(signed_drift_closed=signed, integration_allowance=float(slack[i]))
         text = (f"phase volume is not accounted for by the flow through the open boundaries: after adding back "
                 f"what crossed them, {100 * signed:+.3g} % is {'gained' if signed > 0 else 'lost'} "
                 f"(t = {float(steps['time'].iat[i]):g}; tolerance {100 * tolerance:.3g} % of {against}, and "
                 f"{100 * float(slack[i]):.3g} % for the outflow integrated between outputs); the flow is taken "
-                "from the written velocity and field on the boundary faces, not from the solver's own fluxes")
+                "from the written velocity and field on the boundary faces at the outputs, not from the solver's "
+                "own fluxes: phase that crosses the boundary wholly between two outputs (a drop leaving within "
+                "one interval) is not seen and reads as lost or gained")
+        if points_only:
+            text += ("; the velocity is on points only: where its point values were averaged from the cells, a "
+                     "wall beside the phase (near a corner or a stagnation point) can read open and carry a false "
+                     "flux: write the velocity on cells to tell")
         return [Finding("phase_volume_drift", "warning", text, figures),
                 Finding("open_boundary", "note", _OPEN)]
     text = _OPEN
+    worst_left = figures["largest_drift_closed"]
+    if worst_left > tolerance:  # within the integration's allowance only: the outputs are too far apart
+        text = (f"phase volume through the open boundaries not judged: after adding back what crossed them up to "
+                f"{100 * worst_left:.3g} % is left (tolerance {100 * tolerance:.3g} % of {against}), no more than "
+                "integrating the boundary flow between outputs may miss (the rate changes too much from one "
+                "output to the next); outputs closer in time would tell")
+        return [Finding("phase_volume_not_judged", "note", text, figures), Finding("open_boundary", "note", _OPEN)]
     if worst_change > tolerance:
         text = (f"phase volume changes by up to {100 * worst_change:.3g} % through the open boundaries: the flow "
                 f"through them accounts for it (after adding it back, up to {100 * figures['largest_drift_closed']:.3g}"

@@ -21,7 +21,7 @@ from typing import TYPE_CHECKING
 
 import numpy as np
 
-from ..errors import OptionError, PhasegaugeWarning
+from ..errors import OptionError, PhasegaugeError, PhasegaugeWarning
 from .options import MeasureOptions, accept_old_names
 
 if TYPE_CHECKING:  # pandas is imported where the tables are built
@@ -149,6 +149,7 @@ def _compare_runs(first, second, *, out, overwrite, level, time_tolerance, spaci
     both = open_both()  # discovered once for the output check and the sampling plan
     try:  # each run's step choice and its times checked before either is measured
         chosen = tuple(_chosen(spec, series, flag) for spec, series, flag in zip((first, second), both, "ab"))
+        _some_pair(both, chosen, time_tolerance)
     except BaseException:
         for series in both:
             series.close()
@@ -269,6 +270,22 @@ def _chosen(spec: RunSpec, series, flag: str) -> list:
     if problem is not None:
         raise problem
     return picked
+
+
+def _some_pair(both, chosen, time_tolerance) -> None:
+    """Refuse two runs whose chosen steps, all of known time, share no time within the tolerance."""
+    from ._compare_steps import _predicted_pairs
+
+    try:
+        steps, pair = _predicted_pairs(*both, time_tolerance, chosen)
+    except PhasegaugeError:  # (a bad tolerance: the pairing after the runs says so, as it did)
+        return
+    if pair is None:
+        spans = [f"{min(s.times[i] for i in c):g} to {max(s.times[i] for i in c):g}" for s, c in zip(both, chosen)]
+        raise OptionError(f"the two runs' steps share no time (the first's t = {spans[0]}, the second's "
+                          f"{spans[1]}), so nothing would be compared",
+                          fix="choose steps whose times overlap (--steps-a, --steps-b; recipe: steps in [first], "
+                              "[second]), or give --time-tolerance")
 
 
 def compare_arguments(recipe: dict) -> dict:

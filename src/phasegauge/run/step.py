@@ -71,6 +71,7 @@ class StepResult:
     outline: MeshOutline | None = None
     extra: object = None  # what options.step_extra returned (e.g. c sampled for a comparison)
     field_source: str = ""  # which copy of the field was read, in words
+    velocity_location: str | None = None  # 'cell' or 'point': where the boundary flux took the velocity
     samples: np.ndarray | None = None  # field and c at the run's probe, line and measured points (n, 2)
 
 
@@ -213,6 +214,7 @@ def analyse_step(step, options, *, contour_dir: str | None = None, reported_mesh
                         outline=MeshOutline.of(mesh, centroids="droplets" in options.analyses))
     result.extra = options.step_extra(step, ind)
     result.field_source = ind.source
+    result.velocity_location = u_location
     result.samples = sample_step(mesh, ind, options, where=step.info.where)
     m = {"step": step.index, "time": step.time}
     if flat is not None:  # measured per unit depth: say so in the steps table
