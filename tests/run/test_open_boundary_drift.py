@@ -111,4 +111,4 @@ def test_a_warning_from_point_velocities_says_what_walls_can_do(tmp_path):
     c = ((x < 0.15) & (y < 0.3)).astype(float)
     listing = write_listing(str(tmp_path), [(0.1 * k, f"s_{k}.vtu", mesh, {"c": c}, {"U": points}) for k in range(4)])
     drift = _kinds(measure(listing, "c", velocity="U", analyses=("conservation",)))["phase_volume_drift"]
-    assert "the velocity is on points only" in drift.text and "write the velocity on cells" in drift.text
+    assert "the velocity is on points (no cell copy)" in drift.text and "write the velocity on cells" in drift.text

@@ -219,11 +219,12 @@ def whole_cell_sizes(mesh) -> np.ndarray:
     """
     measures, parents = mesh.cell_measures, mesh.cell_parents
     counts = [CELLS_PER_CUBE.get(b.cell_type, 1) for b in mesh.blocks]
-    if parents is None and max(counts) == 1:
-        return measures ** (1.0 / mesh.dimension)
-    if parents is None:
-        per_cell = np.repeat(np.asarray(counts, dtype=np.float64), [len(b) for b in mesh.blocks])
-        return (per_cell * measures) ** (1.0 / mesh.dimension)
+    if parents is None:  # one array made, as the measures' root alone made it
+        out = np.array(measures, dtype=np.float64)
+        for count, lo, hi in zip(counts, mesh.block_offsets[:-1], mesh.block_offsets[1:]):
+            if count != 1:
+                out[lo:hi] *= count
+        return np.power(out, 1.0 / mesh.dimension, out=out)
     whole = np.bincount(parents, weights=measures)
     if max(counts) > 1:
         pieces = np.bincount(parents, minlength=whole.size)

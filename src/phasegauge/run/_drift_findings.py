@@ -32,7 +32,7 @@ def _left_out_share(steps, first: float) -> tuple[np.ndarray, np.ndarray]:
     return below, above
 
 
-def drift_findings(steps, options, open_domain: bool, floor_volume: float, *, points_only: bool = False) -> list:
+def drift_findings(steps, options, open_domain: bool, floor_volume: float, *, on_points: bool = False) -> list:
     """The phase-volume findings, judged against ``options.drift_tolerance`` (relative) and never
     below ``floor_volume`` (round-off, in volume units).
 
@@ -41,8 +41,8 @@ def drift_findings(steps, options, open_domain: bool, floor_volume: float, *, po
     not account for (``phase_volume_drift_closed``), beyond what integrating the outflow between
     outputs may miss (:func:`outflow_allowance`); a change the flow accounts for is a note. Either
     relative to the first step's phase volume, or, where that is 0 (a channel that starts empty, a
-    drop that appears), to the largest phase volume of the run. ``points_only``: the velocity was on
-    points only (the open domain's warning says that walls can then read open).
+    drop that appears), to the largest phase volume of the run. ``on_points``: the velocity was on
+    points at some step (the open domain's warning says that walls can then read open).
     """
     from .assemble import Finding
 
@@ -60,7 +60,7 @@ def drift_findings(steps, options, open_domain: bool, floor_volume: float, *, po
         against = f"the largest phase volume, {reference:.4g}: the first step holds none"
     tolerance = max(float(options.drift_tolerance), floor_volume / reference if volume is not None else 0.0)
     if open_domain and "phase_volume_outflow" in steps:
-        return _open_findings(steps, change, reference, tolerance, against, Finding, points_only)
+        return _open_findings(steps, change, reference, tolerance, against, Finding, on_points)
     worst = float(np.nanmax(np.abs(change))) if np.isfinite(change).any() else 0.0
     if not worst > tolerance:
         return []
@@ -88,7 +88,7 @@ def drift_findings(steps, options, open_domain: bool, floor_volume: float, *, po
     return [Finding("phase_volume_drift", "warning", text, figures)]
 
 
-def _open_findings(steps, change, reference, tolerance, against, Finding, points_only=False) -> list:
+def _open_findings(steps, change, reference, tolerance, against, Finding, on_points=False) -> list:
     """An open domain's findings: the drift left after adding back what crossed the boundaries."""
     outflow = np.nan_to_num(steps["phase_volume_outflow"].to_numpy(dtype=float))
     left = change + outflow / reference
@@ -109,10 +109,10 @@ def _open_findings(steps, change, reference, tolerance, against, Finding, points
                 "from the written velocity and field on the boundary faces at the outputs, not from the solver's "
                 "own fluxes: phase that crosses the boundary wholly between two outputs (a drop leaving within "
                 "one interval) is not seen and reads as lost or gained")
-        if points_only:
-            text += ("; the velocity is on points only: where its point values were averaged from the cells, a "
-                     "wall beside the phase (near a corner or a stagnation point) can read open and carry a false "
-                     "flux: write the velocity on cells to tell")
+        if on_points:
+            text += ("; the velocity is on points (no cell copy) at some steps or all: where its point values "
+                     "were averaged from the cells, a wall beside the phase (near a corner or a stagnation point) "
+                     "can read open and carry a false flux: write the velocity on cells to tell")
         return [Finding("phase_volume_drift", "warning", text, figures),
                 Finding("open_boundary", "note", _OPEN)]
     text = _OPEN

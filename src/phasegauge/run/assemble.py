@@ -349,7 +349,7 @@ def assemble(series, results: list, options, *, notes=(), feed: TrackingFeed | N
     audit = level_set_audit(audit) if options.level_set and audit else audit
     # done is never empty here (no step analysed raised above; the first step is never skipped after)
     found = findings(steps, droplets, audit, options, skipped, dimension=done[0].dimension,
-                     points_only=all(getattr(r, "velocity_location", None) == "point" for r in done))
+                     on_points=any(getattr(r, "velocity_location", None) == "point" for r in done))
     found += mixture_findings(steps, options) + level_set_findings(steps)
     found += tracking_findings(droplets, events, options, bounds=done[0].outline.bounds, steps=steps) + [
         Finding("warning", "warning", text, {"category": category.__name__})
@@ -396,13 +396,13 @@ def _worst(steps, column, how=np.nanmax) -> float:
 
 
 def findings(steps, droplets, audit: dict, options, skipped: list, *, dimension: int | None = None,
-             points_only: bool = False) -> list:
+             on_points: bool = False) -> list:
     """The findings of the tables (widening interface, drift, overshoot, resolution, skipped steps).
 
     ``dimension`` is the dimension the steps were measured in (2 or 3; a 2D mesh in 3D space and a
     mesh one cell thick measured per unit depth are 2): the Gibbs-Thomson shift of the bulk
-    plateaus' note needs it (None: no expected shift). ``points_only``: every step's boundary flux took
-    the velocity on points (an open domain's drift finding then says what that can do).
+    plateaus' note needs it (None: no expected shift). ``on_points``: a step's boundary flux took the
+    velocity on points (an open domain's drift finding then says what that can do).
 
     Tolerances: overshoot above ``ROUNDOFF_VOLUME`` (1e-9) x the domain volume; drift (in an open
     domain, what the boundary flow does not account for: :func:`._drift_findings.drift_findings`) above
@@ -426,7 +426,7 @@ def findings(steps, droplets, audit: dict, options, skipped: list, *, dimension:
         found.append(Finding("diffusivity_per_step", "warning", audit["note"], {}))
     open_domain = "open_boundary" in steps and bool(steps["open_boundary"].astype(bool).any())
     domain = _worst(steps, "domain_volume")
-    found += drift_findings(steps, options, open_domain, ROUNDOFF_VOLUME * domain, points_only=points_only)
+    found += drift_findings(steps, options, open_domain, ROUNDOFF_VOLUME * domain, on_points=on_points)
     if "overshoot_volume" in steps:
         worst = _worst(steps, "overshoot_volume")
         tolerance = ROUNDOFF_VOLUME * domain
