@@ -133,9 +133,14 @@ def test_the_steps_that_store_their_times_measure_with_a_ratio(tmp_path):
     path = str(folder / "out_*.vtu")
     with pytest.raises(SeriesError, match="step 0 is the first that does not"):
         phasegauge.measure(path, "c")
-    result = phasegauge.measure(path, "c", steps="1:", diffusivity=1e-3)
+    result = phasegauge.measure(path, "c", steps="1:", diffusivity=1e-3, out=str(tmp_path / "out"))
     assert result.audit["interface_kind"] == "diffuse"
     assert "per step" not in result.audit["verdict"] and np.isfinite(result.audit["D_ratio"])
+    import json
+
+    # the manifest names where the measured steps' times came from (not the left-out step 0's)
+    manifest = json.loads((tmp_path / "out" / "manifest.json").read_text())
+    assert manifest["series"]["time_origin"] == "file"
 
 
 def test_compare_takes_one_run_of_a_restart_by_its_steps(tmp_path):

@@ -121,6 +121,9 @@ def measure_report_data(series, result) -> dict:
     results = list(result.results)
     contours = {r.index: getattr(r, "contour", None) for r in results}
     record = series_record(series)
+    origins = [series.steps[r.index].time_origin for r in results if 0 <= r.index < len(series.steps)]
+    if origins:  # the measured steps' (a step choice may leave out steps whose times come from elsewhere)
+        record["time_origin"] = "+".join(dict.fromkeys(origins))
     sources = [r.field_source for r in results if getattr(r, "field_source", "")]
     if sources:
         record["field_read"] = sources[0]
