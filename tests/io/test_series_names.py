@@ -210,6 +210,20 @@ def test_an_unreadable_step_is_no_missing_step(tmp_path):
     assert [s.time_origin for s in series.steps] == ["file", "file", "unknown", "file", "file"]
 
 
+def test_a_step_file_that_is_no_xml_is_unreadable_not_timeless(tmp_path):
+    # regression: a damaged file whose head holds no VTK XML read as a step that stores no time, and
+    # the whole series was refused as mixing stored times and step numbers
+    for k in range(4):
+        _write_disc(str(tmp_path / f"s_{k}.vtu"), 0.5)
+        grid = pyvista.read(tmp_path / f"s_{k}.vtu")
+        grid.field_data["TimeValue"] = np.array([0.1 * k])
+        grid.save(tmp_path / f"s_{k}.vtu")
+    (tmp_path / "s_2.vtu").write_bytes(b"<VTKFile broken")
+    with _no_series_warning():
+        series = Series(str(tmp_path))
+    assert [s.time_origin for s in series.steps] == ["file", "file", "unknown", "file"]
+
+
 def test_an_unreadable_step_does_not_hide_missing_ones(tmp_path):
     # times 0, 0.1, (unreadable), 0.5, 0.6, 0.7: one file cut short cannot fill three intervals, so
     # steps are missing between 0.1 and 0.5 (the most common interval 0.1, from the times VTK stored)

@@ -54,9 +54,11 @@ def peek_legacy_time(path: str):
 def peek_xml_time(path: str):
     """The time in a VTK XML file's ``FieldData`` (VTK's writers put it before the first piece;
     other writers after it, found when it lies in the file's head): a float, None, or
-    :data:`TIME_NEEDS_FULL_READ` when it is stored in binary."""
+    :data:`TIME_NEEDS_FULL_READ` when it is stored in binary or the head is no VTK XML file's."""
     with open(path, "rb") as handle:
         head = handle.read(PEEK_BYTES)
+    if not (re.search(rb"<VTKFile[^<>]*>", head) and re.search(rb"<(Piece|FieldData|Block)\b", head)):
+        return TIME_NEEDS_FULL_READ  # the head of no VTK XML file (damaged): reading it says what it is
     start = head.find(b"<FieldData")
     if start < 0:
         return None
