@@ -85,7 +85,7 @@ def test_one_diffuse_plane_reads_as_many_cells_across_on_a_grid_split_or_not(pai
 def _vof_ball(mesh, radius=0.3, sub=6):
     """Volume fractions of a ball in each cell, by sub-sampling its bounding box (sub^3 points a cell)."""
     pts = mesh.coordinates
-    rows = np.stack([b.connectivity for b in mesh.blocks])[0]
+    rows = mesh.blocks[0].connectivity
     lo, hi = pts[rows].min(axis=1), pts[rows].max(axis=1)
     inside = np.zeros(mesh.n_cells)
     count = np.zeros(mesh.n_cells)

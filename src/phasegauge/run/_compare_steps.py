@@ -95,10 +95,12 @@ def _axis_names(mesh) -> tuple:
     return tuple(AXIS_NAMES[i] for i in mesh.plane_axes[:2]) if mesh.dimension == 2 else AXIS_NAMES
 
 
-def plan_sampling(series_a, series_b, *, spacing=None, time_tolerance=None, chosen=(None, None)) -> SamplingPlan:
+def plan_sampling(series_a, series_b, *, spacing=None, time_tolerance=None, chosen=(None, None),
+                  predicted=None) -> SamplingPlan:
     """Predict the paired steps from the series' times and build the grid from their first pair's meshes.
 
-    ``chosen``: the steps of each run that are measured (None: all), so that only they are paired.
+    ``chosen``: the steps of each run that are measured (None: all), so that only they are paired;
+    ``predicted``: that prediction made already (:func:`_predicted_pairs`), not made again.
 
     Steps whose time is unknown before reading (NaN, or the step index) make the prediction
     unsafe: then every step is sampled. With no predicted pair nothing is sampled. The meshes
@@ -110,7 +112,7 @@ def plan_sampling(series_a, series_b, *, spacing=None, time_tolerance=None, chos
     try:
         with warnings.catch_warnings():  # the measure runs report each series' warnings
             warnings.simplefilter("ignore", PhasegaugeWarning)
-            steps, first = _predicted_pairs(series_a, series_b, time_tolerance, chosen)
+            steps, first = predicted or _predicted_pairs(series_a, series_b, time_tolerance, chosen)
             if first is None:
                 return empty
             mesh_a = series_a.read_mesh(first[0])

@@ -149,7 +149,7 @@ def _compare_runs(first, second, *, out, overwrite, level, time_tolerance, spaci
     both = open_both()  # discovered once for the output check and the sampling plan
     try:  # each run's step choice and its times checked before either is measured
         chosen = tuple(_chosen(spec, series, flag) for spec, series, flag in zip((first, second), both, "ab"))
-        _some_pair(both, chosen, time_tolerance)
+        predicted = _some_pair(both, chosen, time_tolerance)
     except BaseException:
         for series in both:
             series.close()
@@ -166,7 +166,8 @@ def _compare_runs(first, second, *, out, overwrite, level, time_tolerance, spaci
                 series.close()
             raise
         prepare_output_folder(out, overwrite=overwrite, run_key="")
-    plan = plan_sampling(*both, spacing=spacing, time_tolerance=time_tolerance, chosen=chosen)  # (closes them)
+    plan = plan_sampling(*both, spacing=spacing, time_tolerance=time_tolerance, chosen=chosen,
+                         predicted=predicted)  # (closes them)
     runs = []
     for k, spec in enumerate((first, second)):
         options = MeasureOptions(field=spec.field, range=spec.range, phase=spec.phase, level=level,
@@ -272,20 +273,23 @@ def _chosen(spec: RunSpec, series, flag: str) -> list:
     return picked
 
 
-def _some_pair(both, chosen, time_tolerance) -> None:
-    """Refuse two runs whose chosen steps, all of known time, share no time within the tolerance."""
+def _some_pair(both, chosen, time_tolerance):
+    """The predicted pairs of the chosen steps (``_compare_steps._predicted_pairs``; None where
+    pairing fails, as on a bad tolerance: the pairing after the runs says so, as it did); two runs
+    whose chosen steps, all of known time, share no time within the tolerance are refused."""
     from ._compare_steps import _predicted_pairs
 
     try:
-        steps, pair = _predicted_pairs(*both, time_tolerance, chosen)
-    except PhasegaugeError:  # (a bad tolerance: the pairing after the runs says so, as it did)
-        return
-    if pair is None:
+        predicted = _predicted_pairs(*both, time_tolerance, chosen)
+    except PhasegaugeError:
+        return None
+    if predicted[1] is None:
         spans = [f"{min(s.times[i] for i in c):g} to {max(s.times[i] for i in c):g}" for s, c in zip(both, chosen)]
         raise OptionError(f"the two runs' steps share no time (the first's t = {spans[0]}, the second's "
                           f"{spans[1]}), so nothing would be compared",
                           fix="choose steps whose times overlap (--steps-a, --steps-b; recipe: steps in [first], "
                               "[second]), or give --time-tolerance")
+    return predicted
 
 
 def compare_arguments(recipe: dict) -> dict:
