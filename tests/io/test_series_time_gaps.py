@@ -38,6 +38,26 @@ def test_adaptive_steps_around_a_common_interval_show_no_gap():
     assert time_gaps(times)[0] == []
 
 
+def test_an_adaptive_step_growing_past_two_intervals_is_no_gap():
+    # written every solver step: dt held at 0.01 for 60 steps (the common interval), then growing 2 % a
+    # step to 0.025; the steps of 1.96, 2.0 and 2.04 intervals were three false gaps (review 35)
+    dt = [0.01] * 60 + [0.01 * 1.02 ** k for k in range(1, 47)]
+    times = np.concatenate([[0.0], np.cumsum(dt)])
+    gaps, interval = time_gaps(times)
+    assert gaps == [] and interval == pytest.approx(0.01)
+    # one output left out among those steady steps is still a gap
+    gaps, _ = time_gaps(np.delete(times, 30))
+    assert gaps == [(pytest.approx(0.29), pytest.approx(0.31))]
+
+
+def test_an_output_interval_that_doubles_is_named_once():
+    # 0.1 for ten steps, then 0.2: the change is named (the text says the interval may have changed), not
+    # every later step
+    times = np.r_[np.arange(0, 1.0001, 0.1), np.arange(1.2, 3.0001, 0.2)]
+    gaps, _ = time_gaps(times)
+    assert gaps == [(pytest.approx(1.0), pytest.approx(1.2))]
+
+
 def _folder(tmp_path, times):
     import pyvista
 

@@ -23,6 +23,8 @@ __all__ = ["numbering_gaps", "output_interval", "time_gaps", "warn_series_gaps",
 #: (a solver writes at the first time step past each output time: the steps scatter by a few parts in
 #: a thousand)
 _NEAR = 0.05
+#: a gap differs from a step beside it by at least this share of the interval (:func:`time_gaps`)
+_JUMP = 0.5
 
 #: times stored to a resolution of this share of the step interval or more are warned of: the
 #: intervals, and every rate per time, may be off by that share (our threshold)
@@ -179,7 +181,9 @@ def time_gaps(times) -> tuple[list, float]:
     the interval (an extra output at a restart, adaptive steps) are no gap either, and where no
     interval holds half the steps (outputs at irregular times) there is none. A step within 5 % of one
     interval of a whole multiple counts as one (a solver writes at the first time step past each
-    output time), widened by the interval's own standard error times the multiple.
+    output time), widened by the interval's own standard error times the multiple. A gap also differs
+    by half an interval or more from a step beside it: an adaptive time step written every step that
+    grows smoothly past two intervals is none (the steps beside it are as long).
     """
     times = np.asarray([t for t in times if np.isfinite(t)], dtype=np.float64)
     if times.size < 3:
@@ -202,6 +206,13 @@ def time_gaps(times) -> tuple[list, float]:
     slack = np.minimum(_NEAR + 2.0 * error * ratio, 0.45)
     whole = np.abs(ratio - np.round(ratio)) <= slack
     jumps = np.flatnonzero((ratio >= 2 - slack) & whole)
+    # a missing output is a jump from the steps beside it; an adaptive time step that grows smoothly
+    # through two intervals (1.96, 2.0, 2.04 of it, written every step) is none
+    apart = np.abs(np.diff(ratio)) >= _JUMP
+    lone = np.zeros(ratio.size, dtype=bool)
+    lone[1:] |= apart
+    lone[:-1] |= apart
+    jumps = jumps[lone[jumps]]
     return [(float(times[i]), float(times[i + 1])) for i in jumps], interval
 
 
