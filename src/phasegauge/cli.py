@@ -487,8 +487,9 @@ def compare(path_a, path_b, field_a, field_b, range_a, range_b, phase_a, phase_b
         try:
             runs.append(RunSpec(*values))
         except OptionError as err:  # named by the run's own options
-            raise OptionError(f"the {'first' if flag == 'a' else 'second'} run (--steps-{flag}, --interface-kind-"
-                              f"{flag}, --level-set-{flag}): {err.what}", where=err.where, fix=err.fix) from None
+            raise OptionError(f"the {'first' if flag == 'a' else 'second'} run (its options ending in -{flag}: "
+                              f"--range-{flag}, --phase-{flag}, --steps-{flag}, --interface-kind-{flag}, "
+                              f"--level-set-{flag}): {err.what}", where=err.where, fix=err.fix) from None
     first, second = runs
     with output_transaction(out):
         result = compare_runs(first, second, out=out, overwrite=overwrite, level=level,

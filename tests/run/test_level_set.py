@@ -169,6 +169,26 @@ def test_the_command_line_recipe_and_compare_take_it(tmp_path):
     assert (table["interface_size_rel_diff"].abs() < 2e-3).all()
 
 
+def test_compare_names_its_own_options_when_a_level_set_run_gets_a_level_or_range(tmp_path):
+    # compare's --level is both runs' level, and a run's range is --range-a: the refusals said measure's
+    # --level and --range, and told to leave out a --level that the other run reads too
+    from phasegauge.run.compare import RunSpec, compare_runs
+
+    path = _series(str(tmp_path), _distance, (0.2,))
+    base = ["compare", path, path, "--field-a", "phi", "--field-b", "phi", "--level-set-a", "--phase-a", "lower",
+            "--level-set-b", "-o", str(tmp_path / "c"), "-q"]
+    result = CliRunner().invoke(main, base + ["--level", "0.3"])
+    assert result.exit_code != 0 and "--level 0.3 was given with --level-set-a" in result.output
+    assert "it is both runs' level" in result.output and not (tmp_path / "c").exists()
+    result = CliRunner().invoke(main, base + ["--range-b", "-1,1"])
+    assert result.exit_code != 0 and "the second run (its options ending in -b" in result.output
+    assert "--range -1,1 was given with --level-set" in result.output
+    with pytest.raises(OptionError, match="range"):  # refused when the run is named, before any is measured
+        RunSpec(path, "phi", range=(-1.0, 1.0), level_set=True)
+    with pytest.raises(OptionError, match="--level-set-b"):
+        compare_runs(RunSpec(path, "phi"), RunSpec(path, "phi", level_set=True), level=0.4)
+
+
 def test_a_signed_distance_read_as_an_indicator_names_the_flag(tmp_path):
     # without --level-set the field's range warning says what it may be
     from phasegauge.errors import RangeWarning

@@ -210,3 +210,22 @@ def test_compare_refuses_step_choices_that_share_no_time(tmp_path):
     clean = _vtu_series(tmp_path / "clean", FIRST)
     with pytest.raises(OptionError, match=r"share no time \(the first's t = 0 to 0.2, the second's 0.8 to 1\)"):
         compare_runs(RunSpec(clean, "c", steps=":3"), RunSpec(clean, "c", steps="8:"))
+
+
+def test_compare_manifest_names_where_each_runs_times_come_from(tmp_path):
+    # the first run's times stored in its files, the second's from a listing over the same files (its
+    # times win over the stored ones, which are not read): the compare manifest named neither run's
+    # origin before (review 42)
+    import json
+
+    from phasegauge.run.compare import RunSpec, compare_runs
+
+    first = _vtu_series(tmp_path / "run", FIRST)
+    names = sorted(p.name for p in (tmp_path / "run").glob("out_*.vtu"))
+    listing = tmp_path / "run" / "clean.steps"
+    listing.write_text("time,path\n" + "".join(f"{t},{n}\n" for t, n in zip(FIRST, names)))
+    out = tmp_path / "c"
+    compare_runs(RunSpec(first, "c", label="stored"), RunSpec(str(listing), "c", label="listed"), out=str(out))
+    manifest = json.loads((out / "manifest.json").read_text())
+    assert manifest["time_origin"] == {"stored": "file", "listed": "listing"}
+    assert "times from stored: file, listed: listing" in (out / "report.html").read_text()

@@ -48,7 +48,7 @@ def compare_figures(result, *, overlays, level: float) -> list:
 
 
 def write_compare_report(out, result, *, specs, overlays, inputs: list, version: str, started: float,
-                         level: float) -> None:
+                         level: float, time_origins: dict | None = None) -> None:
     """Write the tables, plots, report.html and manifest.json of a comparison, each file atomically.
 
     Parameters
@@ -69,6 +69,9 @@ def write_compare_report(out, result, *, specs, overlays, inputs: list, version:
         Start of the comparison (seconds since the epoch).
     level : float
         The interface level.
+    time_origins : dict, optional
+        Per run label, where its measured steps' times come from ('file', 'xdmf', 'listing',
+        'index', joined by '+').
     """
     out = os.fspath(out)
     written = []
@@ -99,7 +102,9 @@ def write_compare_report(out, result, *, specs, overlays, inputs: list, version:
     page.key_values(_compare_key_figures(result))
     page.heading("Paired steps")
     unpaired = "; ".join(f"{k}: {len(v)} unpaired" for k, v in result.unpaired.items())
-    page.paragraph(f"{len(result.pairs)} paired times; {unpaired}.")
+    origins = {k: v for k, v in (time_origins or {}).items() if v}
+    said = ("; times from " + ", ".join(f"{k}: {v}" for k, v in origins.items())) if origins else ""
+    page.paragraph(f"{len(result.pairs)} paired times; {unpaired}{said}.")
     if len(result.reference_checks):
         page.heading("Published and reference values")
         page.table(result.reference_checks)
@@ -135,7 +140,8 @@ def write_compare_report(out, result, *, specs, overlays, inputs: list, version:
                               "warnings": {label: list(run.flags) for label, run in
                                            zip(result.labels, (result.first, result.second))},
                               "interface_kind": {label: _kind(run)[0] for label, run in
-                                                 zip(result.labels, (result.first, result.second))}},
+                                                 zip(result.labels, (result.first, result.second))},
+                              "time_origin": dict(time_origins or {})},
                       outputs=written, timings={"total_seconds": round(time.time() - started, 3)})
     atomic_write_json(os.path.join(out, "manifest.json"), record)
     atomic_write_json(os.path.join(out, RUN_MARKER), {"run_key": "", "state": "complete"})

@@ -29,6 +29,13 @@ def package_version() -> str:
         return "unknown"
 
 
+def measured_time_origin(series, results) -> str:
+    """Where the measured steps' times come from ('file', 'xdmf', 'listing', 'index', joined by '+'),
+    '' when no step was measured: a step choice may leave out steps whose times come from elsewhere."""
+    origins = [series.steps[r.index].time_origin for r in results if 0 <= r.index < len(series.steps)]
+    return "+".join(dict.fromkeys(origins))
+
+
 def series_record(series) -> dict:
     """Path, kind, number of steps and time origin of a series, as the manifest and page show them."""
     import os
@@ -121,9 +128,7 @@ def measure_report_data(series, result) -> dict:
     results = list(result.results)
     contours = {r.index: getattr(r, "contour", None) for r in results}
     record = series_record(series)
-    origins = [series.steps[r.index].time_origin for r in results if 0 <= r.index < len(series.steps)]
-    if origins:  # the measured steps' (a step choice may leave out steps whose times come from elsewhere)
-        record["time_origin"] = "+".join(dict.fromkeys(origins))
+    record["time_origin"] = measured_time_origin(series, results) or record["time_origin"]
     sources = [r.field_source for r in results if getattr(r, "field_source", "")]
     if sources:
         record["field_read"] = sources[0]

@@ -54,9 +54,8 @@ class RunSpec:
     value_range = MeasureOptions.value_range  # the old name of range (warns), as on the options
 
     def __post_init__(self):  # refused before any run is measured, as the options would refuse it
-        if self.interface_kind is not None or self.level_set or self.steps is not None:
-            MeasureOptions(field=self.field, level_set=self.level_set, interface_kind=self.interface_kind,
-                           steps=self.steps)
+        MeasureOptions(field=self.field, range=self.range, phase=self.phase, level_set=self.level_set,
+                       interface_kind=self.interface_kind, steps=self.steps)
 
 
 @dataclass
@@ -133,6 +132,12 @@ def _compare_runs(first, second, *, out, overwrite, level, time_tolerance, spaci
 
     if not 0 < level < 1:
         raise OptionError(f"level must lie strictly between 0 and 1, found {level}", fix="usually 0.5")
+    for spec, flag in ((first, "a"), (second, "b")):
+        if spec.level_set and level != 0.5:
+            raise OptionError(f"--level {level:g} was given with --level-set-{flag} (recipe: level_set in "
+                              f"[{'first' if flag == 'a' else 'second'}])",
+                              fix="leave --level out: it is both runs' level, and a level set's interface is where "
+                                  "the field is 0")
     if threads is not None:
         from ..model._threads import check_threads
 
@@ -212,11 +217,12 @@ def _compare_runs(first, second, *, out, overwrite, level, time_tolerance, spaci
                            first=res_a, second=res_b, labels=labels)
     if out is not None:
         from ..report._compare_report import write_compare_report
-        from ._report_data import package_version, series_input_files
+        from ._report_data import measured_time_origin, package_version, series_input_files
 
         inputs = [f for s, res in zip(series, runs) for f in series_input_files(s, res.results)]
+        origins = {label: measured_time_origin(s, res.results) for label, s, res in zip(labels, series, runs)}
         write_compare_report(out, result, specs=(first, second), overlays=overlays, inputs=inputs,
-                             version=package_version(), started=started, level=level)
+                             version=package_version(), started=started, level=level, time_origins=origins)
     return result
 
 
