@@ -75,6 +75,40 @@ def test_time_folders_are_measured_in_time_order(tmp_path):
     assert np.allclose(x, 0.2 + 0.1 * np.arange(len(TIMES)), atol=1.0 / N)
 
 
+def test_time_folders_give_the_times_when_the_files_store_none(tmp_path):
+    # the folders' names are the times (Python's float() of each name); the disc moves +0.1 a step at
+    # uneven output times, so its speed is per time, not per step
+    times = ["0", "0.05", "0.1", "0.125", "0.2"]
+    for k, t in enumerate(times):
+        _write_disc(str(tmp_path / "case" / t / "internal.vtu"), 0.2 + 0.1 * k)
+    with _no_series_warning():
+        series = Series(str(tmp_path / "case"))
+    assert series.times.tolist() == [float(t) for t in times] and series.time_origins == ["folder_name"]
+    out = tmp_path / "out"
+    result = phasegauge.measure(str(tmp_path / "case"), "alpha", analyses=("droplets",), out=str(out))
+    assert result.steps["time"].tolist() == [float(t) for t in times]
+    import json
+
+    assert json.loads((out / "manifest.json").read_text())["series"]["time_origin"] == "folder_name"
+    # a missing output among time folders is named from their times
+    for t in ("0", "0.1", "0.2", "0.4", "0.5"):
+        _write_disc(str(tmp_path / "gap" / t / "internal.vtu"), 0.5)
+    with pytest.warns(SeriesWarning, match=r"step times jump \(0\.2 to 0\.4\)"):
+        Series(str(tmp_path / "gap"))
+    # folders of whole numbers may count outputs: the step index stays; so does a time a file stores
+    for t in ("1", "2", "4"):
+        _write_disc(str(tmp_path / "counted" / t / "internal.vtu"), 0.5)
+    assert Series(str(tmp_path / "counted")).time_origins == ["index"]
+    for k, t in enumerate(("0.1", "0.2", "0.3")):
+        path = tmp_path / "stored" / t / "internal.vtu"
+        _write_disc(str(path), 0.5)
+        grid = pyvista.read(path)  # VTK's own writer stores the time, as solvers do
+        grid.field_data["TimeValue"] = np.array([0.5 * k])
+        grid.save(path)
+    stored = Series(str(tmp_path / "stored"))
+    assert stored.times.tolist() == [0.0, 0.5, 1.0] and stored.time_origins == ["file"]
+
+
 def test_decimal_file_names_show_only_their_real_gap(tmp_path):
     for t in ("0.05", "0.1", "0.15", "0.2"):
         _write_disc(str(tmp_path / "even" / f"alpha_{t}.vtu"), 0.5)

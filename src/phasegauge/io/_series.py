@@ -11,7 +11,8 @@ A series path is one of
 The time of a step comes from the first of: the listing (a listing's times
 are used as written; the files' own stored times are not read), the XDMF
 ``Time`` element, a one-value ``TimeValue`` array in the file's field data, the
-step index. :attr:`StepInfo.time_origin` says which.
+names of time folders (``0.05/``) where no file stores its time, the step index.
+:attr:`StepInfo.time_origin` says which.
 
 Files of a folder or a glob are taken in natural order on every path component
 (``run_12/internal.vtu`` before ``run_114/internal.vtu``); a folder holding no
@@ -43,7 +44,8 @@ from ._meshio_xdmf import XdmfTimeSeries
 from ._claims import CheckedFiles, check_hdf5_claims
 from ._series_gaps import (RESOLUTION_SHARE, coarse_time_share, repeated_times_fix, restart_problem, two_times,
                            warn_series_gaps, warn_time_resolution)
-from ._series_names import check_one_family, digits_masked, first_three, natural_key, warn_decimal_doubt
+from ._series_names import (check_one_family, digits_masked, first_three, natural_key, warn_decimal_doubt,
+                            with_folder_times)
 from ._xdmf import (collection_times, collections_among, grid_time, included_files, lone_collection,
                     temporal_grids, xdmf_data_files)
 
@@ -66,7 +68,7 @@ class StepInfo:
         Position in the series, from 0.
     time : float
         Time of the step, in the solver's time units.
-    time_origin : {'xdmf', 'file', 'listing', 'index', 'unknown'}
+    time_origin : {'xdmf', 'file', 'listing', 'folder_name', 'index', 'unknown'}
         Where the time came from (``'unknown'``: the file could not be read
         to find its stored time; ``time`` is NaN and reading the step fails).
     path : str
@@ -402,7 +404,7 @@ class Series:
                 steps.append(StepInfo(i, float(t), "file", f, name=names[i],
                                       time_resolution=getattr(t, "resolution", 0.0)))
         warn_time_resolution(steps, self.path)
-        return steps
+        return with_folder_times(files, steps)
 
     # ------------------------------------------------------------------ access
     def __len__(self) -> int:
@@ -457,11 +459,7 @@ class Series:
     @property
     def time_origins(self) -> list:
         """Distinct origins of the step times, in order of first use."""
-        seen = []
-        for s in self.steps:
-            if s.time_origin not in seen:
-                seen.append(s.time_origin)
-        return seen
+        return list(dict.fromkeys(s.time_origin for s in self.steps))
 
     @property
     def files(self) -> list:
@@ -490,7 +488,7 @@ class Series:
                 mesh, fields = mesh_and_fields(raw, info.where, self.mesh_pool)
             except PhasegaugeError as err:
                 raise err.at(info.where) from None
-            if info.time_origin == "index":
+            if info.time_origin in ("index", "folder_name"):  # a time the file stores beyond its head wins
                 t = _time_from_field_data(fields.field_data, info.where)
                 if t is not None:
                     info = dataclasses.replace(info, time=t, time_origin="file")

@@ -218,7 +218,7 @@ def time_gaps(times) -> tuple[list, float]:
 
 def warn_series_gaps(files: list, where: str, steps: list) -> None:
     """Warn (:class:`SeriesWarning`) of steps that may be missing: from the stored times, else the file numbers."""
-    if steps and all(s.time_origin in ("file", "xdmf", "listing", "unknown") for s in steps) and \
+    if steps and all(s.time_origin in ("file", "xdmf", "listing", "folder_name", "unknown") for s in steps) and \
             any(s.time_origin != "unknown" for s in steps):
         # the files store their times: those, not the file numbers, say whether outputs are missing
         known = np.array([s.time for s in steps if np.isfinite(s.time)])

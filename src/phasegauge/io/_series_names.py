@@ -8,6 +8,7 @@ of negative times need a listing).
 
 from __future__ import annotations
 
+import dataclasses
 import fnmatch
 import glob as globmod
 import os
@@ -50,6 +51,20 @@ def natural_key(text: str, numbers: str = NAME_NUMBER):
     return [[(0, name_number(p)) if re.fullmatch(numbers, p) else (1, p.lower())
              for p in re.split(f"({numbers})", c) if p]
             for c in components] + [[(2, text)]]
+
+
+def with_folder_times(files: list, steps: list) -> list:
+    """``steps`` (of ``files``) with the times their step folders' names give where no step stores
+    its time: folders named by a number alone (``0``, ``0.05``, ``1e-05``: a solver's time folders),
+    each file in its own, some name with a decimal point or an exponent (folders named ``1``, ``2``,
+    ``3`` may count outputs, not time). Steps whose files could not be read keep no time."""
+    names = [os.path.basename(os.path.dirname(os.path.abspath(f))) for f in files]
+    if len(files) < 2 or len(set(names)) < len(names) or not all(re.fullmatch(NAME_NUMBER, n) for n in names):
+        return steps
+    if not any(re.search(r"[.eE]", n) for n in names) or any(s.time_origin not in ("index", "unknown") for s in steps):
+        return steps
+    return [dataclasses.replace(s, time=float(name_number(n)), time_origin="folder_name")
+            if s.time_origin == "index" else s for s, n in zip(steps, names)]
 
 
 def warn_decimal_doubt(files: list, where: str, steps: list) -> bool:

@@ -282,5 +282,6 @@ def format_description(desc: dict) -> str:
 
 def _origin_words(origin: str) -> str:
     words = {"xdmf": "XDMF Time", "file": "time value in each file", "listing": "step listing",
+             "folder_name": "the step folders' names (no times stored in the files)",
              "index": "step index (no times stored)", "unknown": "none where the file could not be read"}
     return " + ".join(words.get(o, o) for o in origin.split("+"))

@@ -71,7 +71,7 @@ def write_compare_report(out, result, *, specs, overlays, inputs: list, version:
         The interface level.
     time_origins : dict, optional
         Per run label, where its measured steps' times come from ('file', 'xdmf', 'listing',
-        'index', joined by '+').
+        'folder_name', 'index', joined by '+').
     """
     out = os.fspath(out)
     written = []
