@@ -205,6 +205,42 @@ def test_times_found_only_by_reading_the_files_are_checked_too(tmp_path):
     assert series.times.tolist() == [0.0, 0.2, 0.1] and series.time_problem() is not None
 
 
+def test_time_folders_give_way_to_times_the_files_store_beyond_their_heads(tmp_path):
+    # review 43: time folders whose large files store their times after the piece (only a full read finds
+    # them): the folders' names were the times at discovery (a false gap warning 0.1 to 0.2 from them),
+    # the files' times once read, and compare's manifest named both origins
+    import json
+    import warnings
+
+    from phasegauge.io import Series
+    from phasegauge.meshgen import grid_mesh
+    from phasegauge.run.compare import RunSpec, compare_runs
+
+    big = grid_mesh((80, 80), kind="quad")
+    for k, name in enumerate(("0", "0.05", "0.1", "0.2", "0.25")):  # regular stored times, a gap in the names
+        (tmp_path / "late" / name).mkdir(parents=True)
+        _vtu_with_trailing_time(tmp_path / "late" / name / "internal.vtu", big, 0.05 * k)
+    with warnings.catch_warnings():
+        warnings.simplefilter("error")  # no gap warning
+        series = Series(str(tmp_path / "late"))
+    assert series.time_origins == ["index"]  # the first file, read whole, stores its time: no folder times
+    result = pg.measure(str(tmp_path / "late"), "c", analyses=("conservation",))
+    assert result.steps["time"].tolist() == pytest.approx([0.0, 0.05, 0.1, 0.15, 0.2])
+    out = tmp_path / "c"
+    compare_runs(RunSpec(str(tmp_path / "late"), "c"), RunSpec(str(tmp_path / "late"), "c"), out=str(out))
+    assert json.loads((out / "manifest.json").read_text())["time_origin"] == {"first": "file", "second": "file"}
+    # only the last file stores a time: the others take their folders' names, refused once it is read
+    for k, name in enumerate(("0", "0.05", "0.1", "0.15")):
+        (tmp_path / "mixed" / name).mkdir(parents=True)
+        pg.meshgen.to_meshio(big, None, {"c": np.zeros(big.n_cells)}).write(tmp_path / "mixed" / name / "a.vtu")
+    (tmp_path / "mixed" / "0.2").mkdir()
+    _vtu_with_trailing_time(tmp_path / "mixed" / "0.2" / "a.vtu", big, 20.0)
+    assert Series(str(tmp_path / "mixed")).time_origins == ["folder_name"]
+    with pytest.raises(SeriesError, match=r"some steps store their times and others do not \(step 0 takes its "
+                                          r"folder's name; step 4 stores 20\)"):
+        pg.measure(str(tmp_path / "mixed"), "c", analyses=("conservation",))
+
+
 def test_cli_compare_takes_the_field_location_and_the_order(tank, tmp_path):
     write_vof_tank(tmp_path / "scrambled", times=[0.0, 0.3, 0.2, 0.4, 0.5])
     res = CliRunner().invoke(main, ["compare", str(tank), str(tmp_path / "scrambled"), "--field-a", "alpha",

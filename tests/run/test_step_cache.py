@@ -38,6 +38,20 @@ def test_the_key_follows_the_file_content_and_the_options(tmp_path):
     assert cache.entry(info) is None  # a missing file: nothing to key by
 
 
+def test_a_time_from_outside_the_file_is_part_of_the_key(tmp_path):
+    # review 43: a listing's time, or a time folder's name, is not in the file's content: a changed one
+    # must not bring back a result with the old time
+    path = _step(tmp_path)
+    cache = StepCache(tmp_path / "cache", MeasureOptions(field="alpha").key())
+    keys = []
+    for t in (0.5, 0.75):
+        (tmp_path / "run.steps").write_text(f"time,path\n{t},s_0.vtu\n")
+        keys.append(cache.entry(Series(str(tmp_path / "run.steps")).steps[0]).path)
+    assert keys[0] != keys[1]
+    index = cache.entry(Series(path).steps[0]).path  # a time the file itself gives keeps its key
+    assert index == cache.entry(Series(path).steps[0]).path
+
+
 def test_a_stored_result_comes_back_reused_and_a_damaged_one_is_a_miss(tmp_path):
     path = _step(tmp_path)
     options = MeasureOptions(field="alpha", analyses=("conservation",))

@@ -23,8 +23,8 @@ from ..errors import InputFileNotFound, PhasegaugeError, SeriesError, Unreadable
 from ._claims import CheckedFiles, check_hdf5_claims
 
 __all__ = ["FileFormat", "register_format", "formats", "format_for", "mesh_suffixes", "read_mesh_file",
-           "peek_time", "TIME_NEEDS_FULL_READ", "check_readable", "stored_time", "StoredTime",
-           "surface_file_problem", "SURFACE_SUFFIXES"]
+           "peek_time", "TIME_NEEDS_FULL_READ", "time_from_field_data", "TIME_ARRAY_NAMES", "check_readable",
+           "stored_time", "StoredTime", "surface_file_problem", "SURFACE_SUFFIXES"]
 
 #: the modules that declare formats, in the order their suffixes are listed
 FORMAT_MODULES = ("_vtk", "_multiblock", "_xdmf")
@@ -251,3 +251,23 @@ def peek_time(path: str):
         raise
     except (OSError, ValueError):
         return None
+
+
+#: field-data arrays a file may store its time in (one value)
+TIME_ARRAY_NAMES = ("TimeValue", "TIME", "time", "Time")
+
+
+def time_from_field_data(field_data: dict, where: str = "") -> float | None:
+    """The time a file stores in its field data (single precision rounded to its digits), or None.
+
+    Raises
+    ------
+    SeriesError
+        The stored time is not a finite number.
+    """
+    for name in TIME_ARRAY_NAMES:
+        if name in field_data:
+            value = np.asarray(field_data[name]).ravel()
+            if value.size >= 1:
+                return stored_time(value[0], where=where, source=f"stored in the file's field data ({name})")
+    return None

@@ -36,7 +36,7 @@ import numpy as np
 from ..errors import InputFileNotFound, PhasegaugeError, SeriesError, SeriesWarning, UnreadableFileError
 from ..model.mesh import Mesh
 from ._formats import (TIME_NEEDS_FULL_READ, check_readable, format_for, peek_time, read_mesh_file, stored_time,
-                       suffix_list, surface_file_problem)
+                       suffix_list, surface_file_problem, time_from_field_data)
 from ._mesh_pool import MeshPool
 from ._multiblock import without_indexed_files
 from ._meshio_adapter import StepFields, mesh_and_fields
@@ -54,8 +54,6 @@ __all__ = ["Series", "StepInfo", "Step", "open_series", "natural_key", "read_lis
 
 #: suffixes taken as a step listing
 LISTING_SUFFIXES = (".steps", ".txt", ".csv", ".list")
-
-TIME_ARRAY_NAMES = ("TimeValue", "TIME", "time", "Time")
 
 
 @dataclass(frozen=True)
@@ -397,14 +395,14 @@ class Series:
                 except PhasegaugeError:  # an unreadable step: its time is unknown; reading it fails later
                     steps.append(StepInfo(i, float("nan"), "unknown", f, name=names[i]))
                     continue
-                t = _time_from_field_data(raw.field_data, where)
+                t = time_from_field_data(raw.field_data, where)
             if t is None:
                 steps.append(StepInfo(i, float(i), "index", f, name=names[i]))
             else:
                 steps.append(StepInfo(i, float(t), "file", f, name=names[i],
                                       time_resolution=getattr(t, "resolution", 0.0)))
         warn_time_resolution(steps, self.path)
-        return with_folder_times(files, steps)
+        return with_folder_times(files, steps, self.checked_files)
 
     # ------------------------------------------------------------------ access
     def __len__(self) -> int:
@@ -489,7 +487,7 @@ class Series:
             except PhasegaugeError as err:
                 raise err.at(info.where) from None
             if info.time_origin in ("index", "folder_name"):  # a time the file stores beyond its head wins
-                t = _time_from_field_data(fields.field_data, info.where)
+                t = time_from_field_data(fields.field_data, info.where)
                 if t is not None:
                     info = dataclasses.replace(info, time=t, time_origin="file")
                     self.steps[index] = info
@@ -541,22 +539,6 @@ def _without_included(files: list, collections: dict) -> list:
     ``collections``: :func:`._xdmf.collections_among` of ``files``."""
     named = {os.path.abspath(g) for _, included in collections.values() for g in included or ()}
     return [f for f in files if os.path.abspath(f) not in named] if named else files
-
-
-def _time_from_field_data(field_data: dict, where: str = "") -> float | None:
-    """The time a file stores in its field data (single precision rounded to its digits), or None.
-
-    Raises
-    ------
-    SeriesError
-        The stored time is not a finite number.
-    """
-    for name in TIME_ARRAY_NAMES:
-        if name in field_data:
-            value = np.asarray(field_data[name]).ravel()
-            if value.size >= 1:
-                return stored_time(value[0], where=where, source=f"stored in the file's field data ({name})")
-    return None
 
 
 def _sorted_by_time(steps: list, where: str) -> list:

@@ -17,7 +17,8 @@ import warnings
 
 import numpy as np
 
-from ..errors import SeriesError, SeriesWarning
+from ..errors import PhasegaugeError, SeriesError, SeriesWarning
+from ._formats import read_mesh_file, time_from_field_data
 
 __all__ = ["NAME_NUMBER", "INTERVAL_TOLERANCE", "name_number", "natural_key", "digits_masked", "check_one_family", "warn_decimal_doubt",
            "first_three"]
@@ -53,15 +54,26 @@ def natural_key(text: str, numbers: str = NAME_NUMBER):
             for c in components] + [[(2, text)]]
 
 
-def with_folder_times(files: list, steps: list) -> list:
+def with_folder_times(files: list, steps: list, checked=None) -> list:
     """``steps`` (of ``files``) with the times their step folders' names give where no step stores
     its time: folders named by a number alone (``0``, ``0.05``, ``1e-05``: a solver's time folders),
     each file in its own, some name with a decimal point or an exponent (folders named ``1``, ``2``,
-    ``3`` may count outputs, not time). Steps whose files could not be read keep no time."""
+    ``3`` may count outputs, not time). Steps whose files could not be read keep no time.
+
+    The first step's file is read whole first (``checked``: the series' record of checked data
+    files): a time it stores beyond the head the discovery reads wins, as it will when each step is
+    read, so the folders' names are then not used at all.
+    """
     names = [os.path.basename(os.path.dirname(os.path.abspath(f))) for f in files]
     if len(files) < 2 or len(set(names)) < len(names) or not all(re.fullmatch(NAME_NUMBER, n) for n in names):
         return steps
     if not any(re.search(r"[.eE]", n) for n in names) or any(s.time_origin not in ("index", "unknown") for s in steps):
+        return steps
+    first = next((s for s in steps if s.time_origin == "index"), None)
+    try:
+        if first is None or time_from_field_data(read_mesh_file(first.path, checked=checked).field_data) is not None:
+            return steps
+    except PhasegaugeError:  # read again, and named, when the step is measured
         return steps
     return [dataclasses.replace(s, time=float(name_number(n)), time_origin="folder_name")
             if s.time_origin == "index" else s for s, n in zip(steps, names)]

@@ -33,7 +33,9 @@ def measured_time_origin(series, results) -> str:
     """Where the measured steps' times come from ('file', 'xdmf', 'listing', 'folder_name', 'index',
     joined by '+'), '' when no step was measured: a step choice may leave out steps whose times come
     from elsewhere."""
-    origins = [series.steps[r.index].time_origin for r in results if 0 <= r.index < len(series.steps)]
+    # each step's own (set when it was read; results cached before it was kept: the series' record)
+    origins = [getattr(r, "time_origin", "") or series.steps[r.index].time_origin
+               for r in results if 0 <= r.index < len(series.steps)]
     return "+".join(dict.fromkeys(origins))
 
 

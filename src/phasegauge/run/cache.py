@@ -93,6 +93,8 @@ class StepCache:
         except OSError:  # a file the user may not read: the step is skipped when it is read
             return None
         text = f"{digest}|{info.grid}|{self._data_stamp(info)}|{self.options_key}"
+        if info.time_origin in ("listing", "folder_name"):  # a time from outside the file: a changed one is new
+            text += f"|{info.time!r}"
         key = hashlib.sha256(text.encode()).hexdigest()[:20]
         return CacheEntry(os.path.join(self.folder, f"step_{info.index:06d}_{key}.pkl"), digest)
 

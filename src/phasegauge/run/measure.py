@@ -430,6 +430,14 @@ def _check_read_times(results, options) -> None:
     from ..io._series_gaps import two_times
 
     done = [r for r in results if r.skipped is None and np.isfinite(r.time)]
+    stored = [r for r in done if getattr(r, "time_origin", "") in ("file", "xdmf")]
+    other = [r for r in done if getattr(r, "time_origin", "") in ("index", "folder_name")]
+    if stored and other:  # a time found only by reading beside steps without one: no one time axis
+        said = "its folder's name" if other[0].time_origin == "folder_name" else "its step number"
+        raise SeriesError(f"some steps store their times and others do not (step {other[0].index} takes {said}; "
+                          f"step {stored[0].index} stores {stored[0].time:.6g}): they would be one time axis",
+                          where=f"{other[0].path}, step {other[0].index}",
+                          fix="write the time into every file or give a 'time,path' listing")
     for before, after in zip(done[:-1], done[1:]):
         if after.time <= before.time:
             fix = ("remove the repeated step" if after.time == before.time else

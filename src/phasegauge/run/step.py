@@ -73,6 +73,7 @@ class StepResult:
     field_source: str = ""  # which copy of the field was read, in words
     velocity_location: str | None = None  # 'cell' or 'point': where the boundary flux took the velocity
     samples: np.ndarray | None = None  # field and c at the run's probe, line and measured points (n, 2)
+    time_origin: str = ""  # where the time came from, once the step was read (StepInfo.time_origin)
 
 
 # ------------------------------------------------------------------ the analyses of one step
@@ -210,7 +211,7 @@ def analyse_step(step, options, *, contour_dir: str | None = None, reported_mesh
     check_mesh(mesh, step.info.where, reported=reported_meshes)
     u_cell, u_point, u_location = step_velocity(step, options)
     result = StepResult(step.index, step.time, step.info.path, mesh_signature=mesh.signature,
-                        dimension=int(mesh.dimension),
+                        dimension=int(mesh.dimension), time_origin=step.info.time_origin,
                         outline=MeshOutline.of(mesh, centroids="droplets" in options.analyses))
     result.extra = options.step_extra(step, ind)
     result.field_source = ind.source
