@@ -188,6 +188,8 @@ def inspect(path, as_json, scan, sort_by_time):
               help="Cross-section positions, comma-separated (instead of a count).")
 @click.option("--mixing-target", type=float, default=0.9, show_default=True,
               help="Mixing index that defines the mixing length.")
+@click.option("--inflow-mean", type=float, default=None,
+              help="Mean of c over the whole inflow, the sections' reference (default: the first section's).")
 @click.option("--segregation-scale", is_flag=True,
               help="Also compute Danckwerts' scale of segregation (an FFT of the domain per step).")
 @click.option("--drift-tolerance", type=float, default=1e-3, show_default=True,
@@ -233,7 +235,8 @@ def measure(path, field, value_range, phase, level, velocity, field_location, so
             adjacency, periodic,
             ignore_remerge_within, densities, diffusivity, interface_kind, box, section_axis, section_count,
             section_positions,
-            mixing_target, segregation_scale, drift_tolerance, workers, threads, scheduler, resume, overwrite, strict,
+            mixing_target, inflow_mean, segregation_scale, drift_tolerance, workers, threads, scheduler, resume,
+            overwrite, strict,
             keep_3d, level_set,
             contours, snapshots, plot_format, keep_cache, quiet, probe_file, line_file, measured_file,
             free_energy=None, coarsening=False, **mixture):
@@ -253,7 +256,7 @@ def measure(path, field, value_range, phase, level, velocity, field_location, so
         diffusivity=diffusivity, interface_kind=interface_kind, box=_box(box), section_axis=section_axis,
         section_count=section_count,
         section_positions=_floats(section_positions, "--section-positions"), mixing_target=mixing_target,
-        segregation_scale=segregation_scale,
+        inflow_mean=inflow_mean, segregation_scale=segregation_scale,
         drift_tolerance=drift_tolerance, strict=strict, field_location=field_location or "auto",
         sort_by_time=sort_by_time, keep_3d=keep_3d, level_set=level_set, steps=steps, time_from=time_from,
         time_to=time_to, every=every,

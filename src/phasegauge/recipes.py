@@ -30,6 +30,7 @@ A measure recipe::
     section_axis = "x"
     section_count = 20         # or section_positions = [...]
     mixing_target = 0.9
+    inflow_mean = 0.25         # optional: the mean of c over the whole inflow
 
     [conservation]
     densities = [1000.0, 1.0]
@@ -103,7 +104,7 @@ RECIPE_SCHEMA = {
     "interface": {"level": (int, float), "diffusivity": (int, float), "interface_kind": str, "contours": bool},
     "droplets": {"adjacency": str, "periodic": list, "ignore_remerge_within": int},
     "mixing": {"box": list, "section_axis": str, "section_count": int, "section_positions": list,
-               "mixing_target": (int, float), "segregation_scale": bool},
+               "mixing_target": (int, float), "inflow_mean": (int, float), "segregation_scale": bool},
     "conservation": {"densities": list, "drift_tolerance": (int, float)},
     "run": {"analyses": list, "workers": int, "threads": int, "scheduler": str, "strict": bool, "snapshots": int},
     "output": {"folder": str, "overwrite": bool, "plot_format": str, "keep_cache": bool},
@@ -252,6 +253,7 @@ _MEASURE_OPTION = {("input", "field"): "field", ("input", "range"): "range", ("i
                    ("droplets", "ignore_remerge_within"): "ignore_remerge_within", ("mixing", "box"): "box",
                    ("mixing", "section_axis"): "section_axis", ("mixing", "section_count"): "section_count",
                    ("mixing", "section_positions"): "section_positions", ("mixing", "mixing_target"): "mixing_target",
+                   ("mixing", "inflow_mean"): "inflow_mean",
                    ("conservation", "densities"): "densities",
                    ("conservation", "drift_tolerance"): "drift_tolerance", ("run", "analyses"): "analyses",
                    ("input", "steps"): "steps", ("input", "time_from"): "time_from", ("input", "time_to"): "time_to",
@@ -392,7 +394,8 @@ def measure_arguments(recipe: dict) -> dict:
         box=tuple(map(tuple, mix["box"])) if "box" in mix else None,
         section_axis=mix.get("section_axis"), section_count=mix.get("section_count", 20),
         section_positions=tuple(mix["section_positions"]) if "section_positions" in mix else None,
-        mixing_target=mix.get("mixing_target", 0.9), segregation_scale=mix.get("segregation_scale", False),
+        mixing_target=mix.get("mixing_target", 0.9), inflow_mean=mix.get("inflow_mean"),
+        segregation_scale=mix.get("segregation_scale", False),
         drift_tolerance=cons.get("drift_tolerance", 1e-3),
         strict=run.get("strict", False), field_location=inp.get("field_location", "auto"),
         sort_by_time=inp.get("sort_by_time", False), keep_3d=inp.get("keep_3d", False),

@@ -8,6 +8,7 @@ cell values the planes cut.
 import warnings
 
 import numpy as np
+import pandas as pd
 import pytest
 
 from phasegauge.analysis.mixing import cross_sections, mixing_length
@@ -181,3 +182,86 @@ def test_an_inflow_mean_of_one_phase_is_refused(given):
     with pytest.raises(OptionError, match="inflow_mean must be a number strictly between 0 and 1"):
         cross_sections(mesh, np.where(y < 0.3, 1.0, 0.0), positions=[0.5], velocity=u, c_location="cell",
                        velocity_location="cell", inflow_mean=given)
+
+
+def test_a_section_with_back_flow_takes_area_weights_and_says_so():
+    # audit 9: a recirculation at x in (1, 2), u = 1 + 3 cos(2 pi y) (net flow 1; u < 0 on 0.30 < y < 0.70),
+    # holding unmixed fluid. Signed flow weights gave a negative variance there, clipped to 0: "perfectly
+    # mixed", and the mixing length was read from it. Outside reference: the back-flow share
+    # int max(-u, 0) / int |u| by scipy's quad on the cells' values
+    from scipy.integrate import quad
+
+    mesh = grid_mesh((60, 200), [(0, 3), (0, 1)])
+    x, y = mesh.cell_centroids[:, 0], mesh.cell_centroids[:, 1]
+    inside = (x > 1) & (x < 2)
+    ux = np.where(inside, 1 + 3 * np.cos(2 * np.pi * y), 1.0)
+    u = np.stack([ux, np.zeros_like(ux), np.zeros_like(ux)], axis=1)
+    c = np.where(inside & (np.abs(y - 0.5) < 0.15), (y < 0.5).astype(float), np.where(y < 0.5, 1.0, 0.0))
+    c = np.where(inside & (np.abs(y - 0.5) >= 0.15), 0.5, c)
+    with pytest.warns(PhasegaugeWarning, match=r"back-flow through the section at x = 1.525 \(2\d% of its flow\)"):
+        table = cross_sections(mesh, c, positions=[0.525, 1.525, 2.525], velocity=u, c_location="cell",
+                               velocity_location="cell")
+    back = table.set_index("position").loc[1.525]
+    cells = np.sort(np.unique(np.round(y, 12)))  # the cell values the plane reads, piecewise constant in y
+
+    def u_cells(t):
+        return 1 + 3 * np.cos(2 * np.pi * cells[min(int(t * 200), 199)])
+
+    breaks = list(np.linspace(0, 1, 201))
+    against = sum(quad(lambda t: max(-u_cells(t), 0.0), a, b)[0] for a, b in zip(breaks[:-1], breaks[1:]))
+    gross = sum(quad(lambda t: abs(u_cells(t)), a, b)[0] for a, b in zip(breaks[:-1], breaks[1:]))
+    assert back["backflow_fraction"] == pytest.approx(against / gross, rel=1e-9)
+    assert back["weighting"] == "area" and back["segregation_intensity_flow"] == back["segregation_intensity"]
+    assert back["segregation_intensity_inflow"] > 0.2  # unmixed fluid reads unmixed, not 0
+    assert table["backflow_fraction"].iloc[0] == 0.0 and table["weighting"].iloc[0] == "flow"
+
+
+def test_a_first_section_that_carries_part_of_the_flow_is_no_inflow():
+    # audit 9: a first section that does not carry the whole flow (here a side inlet doubles the flow at
+    # x = 1; at an angle to the axis a plane cuts a corner of the inlet) read its own mean as the
+    # inflow's. Outside reference: the net flows int u dy = 1 and 2 (analytic)
+    mesh, x, y, _ = _channel(10)
+    ux = np.where(x < 1, 1.0, 2.0)
+    u = np.stack([ux, np.zeros_like(ux), np.zeros_like(ux)], axis=1)
+    c = np.where(x < 1, (y < 0.5).astype(float), 0.25 + 0.5 * y)
+    with pytest.warns(PhasegaugeWarning, match=r"carries a net flow of 1, against 2 through the median section"):
+        table = cross_sections(mesh, c, positions=[0.25, 1.25, 1.5, 1.75], velocity=u, c_location="cell",
+                               velocity_location="cell")
+    np.testing.assert_allclose(table["flow_rate"], [1, 2, 2, 2], rtol=1e-12)
+    assert table["inflow_mean"].isna().all() and table["mixing_index_inflow"].isna().all()
+    assert np.isnan(mixing_length(table))
+    given = cross_sections(mesh, c, positions=[0.25, 1.25], velocity=u, c_location="cell",
+                           velocity_location="cell", inflow_mean=0.4)
+    assert (given["inflow_mean"] == 0.4).all()  # a mean given is the user's: no flow check
+
+
+@pytest.mark.parametrize("carrier", [1e-7, 1e-4, 0.01])
+def test_dye_injected_into_carrier_downstream_of_the_first_section(carrier):
+    # audit 9: carrier not exactly 0 upstream (a phase-field bulk sits at 0.01-0.03), dye added at x = 1:
+    # the uniform first section read as the inflow, the sections downstream as "mixed" -2.9 (I about it
+    # far above 1, by Danckwerts' formula by hand), and the mixing length landed in pure carrier
+    mesh, x, y, u = _channel(10)
+    c = np.where(x < 1, carrier, np.where(y < 0.3, 1.0, carrier))
+    with pytest.warns(PhasegaugeWarning, match="than a segregated inflow would"):
+        table = cross_sections(mesh, c, positions=[0.25, 0.75, 1.25, 1.75], velocity=u, c_location="cell",
+                               velocity_location="cell")
+    column = np.sort(np.unique(np.round(y, 12)))
+    w = 6 * column * (1 - column)
+    assert _danckwerts(np.where(column < 0.3, 1.0, carrier), w, carrier) > 1.25
+    assert table["mixing_index_inflow"].isna().all() and np.isnan(mixing_length(table))
+    # the inflow's mean given (dye and carrier streams together): kept, with the same warning if far
+    given = cross_sections(mesh, c, positions=[0.25, 1.25, 1.75], velocity=u, c_location="cell",
+                           velocity_location="cell", inflow_mean=0.2)
+    assert (given["inflow_mean"] == 0.2).all() and given["mixing_index_inflow"].notna().all()
+
+
+def test_the_mixing_length_is_a_distance_from_the_inlet_end():
+    # audit 9: the length was the position, so a channel from x = 2 to 12, or one flowing towards -x,
+    # read its position as its length. By hand: linear interpolation between the planes' indices
+    table = pd.DataFrame({"position": [3.0, 5.0, 7.0, 9.0], "mixing_index_inflow": [0.5, 0.8, 0.95, 0.99],
+                          "flow_rate": [1.0] * 4})
+    at = 5.0 + (0.9 - 0.8) / (0.95 - 0.8) * 2.0
+    assert mixing_length(table) == pytest.approx(at)
+    assert mixing_length(table, ends=(2.0, 12.0)) == pytest.approx(at - 2.0)
+    mirrored = table.assign(position=14.0 - table["position"], flow_rate=-1.0)  # the same channel towards -x
+    assert mixing_length(mirrored, ends=(2.0, 12.0)) == pytest.approx(at - 2.0)

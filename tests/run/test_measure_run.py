@@ -464,3 +464,23 @@ def test_the_run_reads_the_mixing_length_against_the_inflow(tmp_path):
                   section_positions=(0.25, 0.75, 1.25, 1.75), analyses=("mixing",))
     assert np.isnan(res.steps["mixing_length"][0])
     assert np.isfinite(mixing_length(res.profiles, reference="section"))  # the old reading
+
+
+@pytest.mark.parametrize("towards", [1.0, -1.0])
+def test_the_run_measures_the_mixing_length_from_the_end_the_flow_enters_by(tmp_path, towards):
+    # audit 9: the run's mixing_length was the position along the axis, so a channel from x = 2 to 6, or one
+    # flowing towards -x, read a position as its length. Outside check: the profile's own crossing of the
+    # target, by linear interpolation (mixing_length without ends), less the inlet end's coordinate
+    from phasegauge.analysis.mixing import mixing_length
+
+    m = grid_mesh((40, 10), [(2, 6), (0, 1)])
+    x, y = m.cell_centroids[:, 0], m.cell_centroids[:, 1]
+    u = np.stack([np.full_like(x, towards), np.zeros_like(x), np.zeros_like(x)], axis=1)
+    blend = np.clip((x - 2) / 4 if towards > 0 else (6 - x) / 4, 0, 1)  # two streams blending downstream
+    c = np.where(y < 0.5, 0.5 + 0.5 * (1 - blend), 0.5 - 0.5 * (1 - blend))
+    to_meshio(m, cell_data={"c": c, "u": u}).write(tmp_path / "blend.vtu")
+    res = measure(tmp_path / "blend.vtu", "c", velocity="u", section_axis="x", section_count=8,
+                  mixing_target=0.6, analyses=("mixing",))
+    at = mixing_length(res.profiles, target=0.6)
+    expected = at - 2 if towards > 0 else 6 - at
+    assert res.steps["mixing_length"][0] == pytest.approx(expected, rel=1e-12) and 0 < expected < 4

@@ -44,6 +44,7 @@ VALUES = {
     "section_count": (["--section-count", "5"], "mixing", "5", 5),
     "section_positions": (["--section-positions", "0.25,0.5"], "mixing", "[0.25, 0.5]", (0.25, 0.5)),
     "mixing_target": (["--mixing-target", "0.8"], "mixing", "0.8", 0.8),
+    "inflow_mean": (["--inflow-mean", "0.25"], "mixing", "0.25", 0.25),
     "segregation_scale": (["--segregation-scale"], "mixing", "true", True),
     "densities": (["--densities", "2,1"], "conservation", "[2.0, 1.0]", (2.0, 1.0)),
     "drift_tolerance": (["--drift-tolerance", "0.01"], "conservation", "0.01", 0.01),

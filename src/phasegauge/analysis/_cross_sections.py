@@ -40,8 +40,8 @@ __all__ = ["cross_sections", "PROFILE_COLUMNS"]
 #: columns of the table :func:`cross_sections` returns, in order
 PROFILE_COLUMNS = ("position", "area", "mean_area_weighted", "mean_flow_weighted",
                    "segregation_intensity", "segregation_intensity_flow", "mixing_index",
-                   "mixing_index_flow", "flow_rate", "inflow_mean", "segregation_intensity_inflow",
-                   "mixing_index_inflow", "weighting")
+                   "mixing_index_flow", "flow_rate", "backflow_fraction", "inflow_mean",
+                   "segregation_intensity_inflow", "mixing_index_inflow", "weighting")
 
 #: a section has no net flow where |int u.n dA| <= this x int |u.n| dA: the flow-weighted mean
 #: divides by the net flow, so below this it would amplify round-off (float32 velocities of a closed
@@ -51,6 +51,58 @@ NO_FLOW_TOLERANCE = 1e-3
 #: an inflow mean within this of 0 or 1 is one phase (round-off of a uniform section): no
 #: segregation to measure the sections against
 ONE_PHASE = 1e-9
+#: a section where more than this share of int |u.n| dA runs against its net flow has back-flow: signed
+#: flow weights would mix forward and backward flow (a variance could come out negative), so its flow-
+#: weighted columns take area weights (our threshold)
+BACKFLOW_TOLERANCE = 0.01
+#: the first section's net flow differing from the median section's by more than this share of it does
+#: not cut the whole inflow: a channel at an angle to the axis, an inlet between sections (our threshold)
+FLOW_MISMATCH = 0.05
+#: a section whose intensity of segregation about the inflow mean exceeds this is farther from it than a
+#: segregated inflow (I = 1) with some overshoot: the first section is not what flows there (our threshold)
+INFLOW_MISMATCH = 1.25
+
+
+#: how to mend an inflow section the sections' figures cannot be read against
+_INFLOW_FIX = ("put the sections across the whole channel, downstream of every inlet (--section-positions), or give "
+               "the inflow's mean (--inflow-mean)")
+
+
+def _area_weighted_notes(table: pd.DataFrame, global_axis: int) -> list:
+    """One warning for the sections with no net flow and one for those with back-flow: their
+    flow-weighted columns took area weights."""
+    notes = []
+    area = (table["weighting"] == "area").to_numpy()
+    share = table["backflow_fraction"].to_numpy()
+    # a share of about a half is no net flow (|net| = (1 - 2 share) of the gross flow)
+    back = area & (share > BACKFLOW_TOLERANCE) & (share < 0.5 * (1.0 - NO_FLOW_TOLERANCE))
+    for chosen, why in ((area & ~back, "no net flow through the section"),
+                        (back, "back-flow through the section")):
+        if not chosen.any():
+            continue
+        at = table.loc[chosen, ["position", "backflow_fraction"]].to_numpy()
+        names = ", ".join(f"{AXIS_NAMES[global_axis]} = {x:.6g}" + (f" ({b:.0%} of its flow)" if chosen is back else "")
+                          for x, b in at[:3])
+        more = f" and {len(at) - 3} more" if len(at) > 3 else ""
+        notes.append(PhasegaugeWarning(f"{why} at {names}{more}: the flow-weighted mean and mixing index there use "
+                                       "area weights" + (" (signed flow weights would mix the forward and the "
+                                                         "backward flow)" if chosen is back else "")))
+    return notes
+
+
+def _partial_inflow(table: pd.DataFrame, first: int, where: str) -> str | None:
+    """Why the first section's net flow cannot be the whole inflow (it differs from the median
+    section's by more than :data:`FLOW_MISMATCH` of it), or None."""
+    flow = table["flow_rate"].to_numpy()
+    finite = flow[np.isfinite(flow)]
+    if finite.size < 3 or not np.isfinite(flow[first]):
+        return None
+    median = float(np.median(finite))
+    if median == 0 or abs(flow[first] - median) <= FLOW_MISMATCH * abs(median):
+        return None
+    return (f"{where} carries a net flow of {flow[first]:.4g}, against {median:.4g} through the median section, "
+            "so it does not cut the whole inflow (a channel at an angle to the axis, or an inlet or outlet between "
+            "the sections)")
 
 
 def normalize_axis(mesh: Mesh, axis) -> tuple[int, int]:
@@ -277,6 +329,7 @@ def cross_sections(mesh: Mesh, c_point_or_indicator, *, axis="x", positions=None
           the same weights; NaN when m (1 - m) <= 0 (a uniform pure phase, or m out of [0, 1]);
         - ``mixing_index``, ``mixing_index_flow``: 1 - sqrt(I);
         - ``flow_rate``: int u.n dA, volume per time (area per time in 2D), signed along +axis;
+        - ``backflow_fraction``: the share of int |u.n| dA that runs against the net flow;
         - ``inflow_mean``: the reference mean (``inflow_mean``, or the first plane's mean);
         - ``segregation_intensity_inflow``, ``mixing_index_inflow``: Danckwerts' I about the
           inflow mean, int w (c - m_in)^2 / (W m_in (1 - m_in)), and 1 - sqrt(I), with flow
@@ -285,8 +338,8 @@ def cross_sections(mesh: Mesh, c_point_or_indicator, *, axis="x", positions=None
         - ``weighting``: 'flow' or 'area', the weights of the ``_flow`` and ``_inflow`` columns.
 
         Flow-weighted columns are NaN without ``velocity``. Where a plane's net
-        flow rate is zero (|int u.n dA| <= 1e-3 int |u.n| dA) they take the
-        area-weighted values, and one :class:`PhasegaugeWarning` names those planes.
+        flow rate is zero (|int u.n dA| <= 1e-3 int |u.n| dA), or it has back-flow, they take the
+        area-weighted values, and a :class:`PhasegaugeWarning` names those planes.
 
     Raises
     ------
@@ -304,9 +357,14 @@ def cross_sections(mesh: Mesh, c_point_or_indicator, *, axis="x", positions=None
     from the bilinear/trilinear one by O(h^2) inside a cell. A plane through mesh points takes the faces on its
     lower side (at the lowest mesh coordinate, those on its upper side), so
     every face counts once. Parts where c (or the velocity) is NaN are left
-    out of the statistics and ``flow_rate`` but not of ``area``. Flow weights are signed: with
-    back-flow through a plane the flow-weighted figures mix forward and
-    backward flow. Values of c are not clipped, so overshoots can make I > 1.
+    out of the statistics and ``flow_rate`` but not of ``area``. Flow weights are signed, so a
+    plane where more than 1 % of int |u.n| dA runs against its net flow (``backflow_fraction``)
+    takes area weights, with a warning. Taken from the first plane, the inflow is refused (NaN
+    inflow columns, a warning) where that plane's net flow differs from the median plane's by more
+    than 5 % (it does not cut the whole inflow), and so is any inflow mean where a plane lies
+    farther from it than a segregated inflow would (I about it above 1.25: an inlet downstream, or
+    an unsteady flow; given, it is kept with the warning). Values of c are not clipped, so
+    overshoots can make I > 1.
 
     References
     ----------
@@ -378,14 +436,17 @@ def cross_sections_noted(mesh: Mesh, c_point_or_indicator, *, axis="x", position
         used = (float(w.sum()),) + tuple(integrals[:2])
         if un is not None:
             flow, flow_c, flow_cc = integrals[2:]
-            # int |u.n| dA, to the accuracy a tolerance needs (the mean of |u.n| over each piece's corners)
+            # int |u.n| dA and the part of it against the net flow, to the accuracy a tolerance needs (the
+            # mean over each piece's corners)
             gross = float(dot(w, corner_sum([np.abs(v) for v in un]))) / len(un)
+            against = float(dot(w, corner_sum([np.maximum(-v if flow >= 0 else v, 0.0) for v in un]))) / len(un)
             row["flow_rate"] = flow
-            if abs(flow) > NO_FLOW_TOLERANCE * gross:
+            row["backflow_fraction"] = against / gross if gross > 0 else np.nan
+            if abs(flow) > NO_FLOW_TOLERANCE * gross and against <= BACKFLOW_TOLERANCE * gross:
                 mean_f, intensity_f = _statistics(flow, flow_c, flow_cc, shift)
                 used = (flow, flow_c, flow_cc)
                 row["weighting"] = "flow"
-            else:  # no net flow through this plane: area weights
+            else:  # no net flow through this plane, or back-flow: area weights
                 mean_f, intensity_f = mean, intensity
             row.update(mean_flow_weighted=mean_f, segregation_intensity_flow=intensity_f)
         return row, used
@@ -399,13 +460,11 @@ def cross_sections_noted(mesh: Mesh, c_point_or_indicator, *, axis="x", position
     notes = []
     table[[c for c in PROFILE_COLUMNS if c != "weighting"]] = table[
         [c for c in PROFILE_COLUMNS if c != "weighting"]].astype(np.float64)
-    if u is not None and len(table) and (table["weighting"] == "area").any():
-        still = table.loc[table["weighting"] == "area", "position"].to_numpy()
-        names = ", ".join(f"{AXIS_NAMES[global_axis]} = {x:.6g}" for x in still[:3])
-        more = f" and {len(still) - 3} more" if len(still) > 3 else ""
-        notes.append(PhasegaugeWarning(f"no net flow through the section at {names}{more}: the flow-weighted "
-                                       "mean and mixing index there use area weights"))
-    if inflow_mean is None and len(table):
+    if u is not None and len(table):
+        notes += _area_weighted_notes(table, global_axis)
+    given = inflow_mean is not None
+    first = 0
+    if not given and len(table):
         # the inflow section: the first plane along the flow (the lowest position, the highest for
         # flow towards -axis)
         backwards = u is not None and float(np.nansum(table["flow_rate"].to_numpy())) < 0
@@ -413,15 +472,31 @@ def cross_sections_noted(mesh: Mesh, c_point_or_indicator, *, axis="x", position
         inflow_mean = table["mean_flow_weighted"].iloc[first] if u is not None else np.nan
         if not np.isfinite(inflow_mean):
             inflow_mean = table["mean_area_weighted"].iloc[first]
-        if np.isfinite(inflow_mean) and not ONE_PHASE < inflow_mean < 1 - ONE_PHASE:
-            notes.append(PhasegaugeWarning(
-                f"the first section along the flow ({AXIS_NAMES[global_axis]} = {positions[first]:.6g}) is of one "
-                f"phase (mean c {float(inflow_mean):.3g}), so the mixing index against the inflow, and the mixing "
-                "length read from it, are undefined: put the sections downstream of every inlet "
-                "(--section-positions), or give the inflow's mean (inflow_mean in Python)"))
-            inflow_mean = np.nan  # within round-off of one phase: no index against it, not a huge one
+        where = f"the first section along the flow ({AXIS_NAMES[global_axis]} = {positions[first]:.6g})"
+        problem = _partial_inflow(table, first, where) if u is not None else None  # the cause, when so
+        if problem is None and np.isfinite(inflow_mean) and not ONE_PHASE < inflow_mean < 1 - ONE_PHASE:
+            problem = f"{where} is of one phase (mean c {float(inflow_mean):.3g})"
+        if problem:
+            notes.append(PhasegaugeWarning(f"{problem}, so the mixing index against the inflow, and the mixing "
+                                           f"length read from it, are undefined: {_INFLOW_FIX}"))
+            inflow_mean = np.nan  # no index against it, not a huge or a wrong one
     table["inflow_mean"] = float(inflow_mean) if len(table) else np.nan
     table["segregation_intensity_inflow"] = [_about(*m, shift, float(inflow_mean)) for m in moments]
+    far = table["segregation_intensity_inflow"].to_numpy() > INFLOW_MISMATCH
+    if far.any():
+        k = int(np.flatnonzero(far)[0])
+        reference = "the inflow mean given" if given else f"the inflow mean (of the section at " \
+                    f"{AXIS_NAMES[global_axis]} = {positions[first]:.6g})"
+        intensity = float(table["segregation_intensity_inflow"].iloc[k])
+        notes.append(PhasegaugeWarning(
+            f"the section at {AXIS_NAMES[global_axis]} = {positions[k]:.6g} lies farther from {reference}, "
+            f"{float(inflow_mean):.3g}, than a segregated inflow would (I = {intensity:.3g} about it, "
+            f"{int(far.sum())} section(s) so): an inlet lies downstream of the inflow section, or the flow "
+            "is not steady" + ("" if given else f"; the mixing index against the inflow, and the mixing length, "
+                               f"are left undefined: {_INFLOW_FIX}")))
+        if not given:
+            table["inflow_mean"] = np.nan
+            table["segregation_intensity_inflow"] = np.nan
     with np.errstate(invalid="ignore"):
         table["mixing_index"] = 1.0 - np.sqrt(table["segregation_intensity"])
         table["mixing_index_flow"] = 1.0 - np.sqrt(table["segregation_intensity_flow"])

@@ -154,8 +154,9 @@ def mixing_metrics(mesh: Mesh, c_cell, *, box=None) -> dict:
 
 
 def mixing_length(profile: pd.DataFrame, *, target: float = 0.9, reference: str = "inflow",
-                  weighting: str = "flow") -> float:
-    """First position along a profile where the mixing index reaches ``target``.
+                  weighting: str = "flow", ends: tuple | None = None) -> float:
+    """First position along a profile where the mixing index reaches ``target``, or with ``ends`` the
+    distance to it from the end the flow enters by.
 
     Parameters
     ----------
@@ -172,6 +173,10 @@ def mixing_length(profile: pd.DataFrame, *, target: float = 0.9, reference: str 
         where a section of pure carrier reads 1, "mixed".
     weighting : {'flow', 'area'}
         With ``reference='section'``: the flow-weighted or the area-weighted mixing index.
+    ends : (float, float), optional
+        The domain's extent (low, high) along the profile's axis: the result is then the distance
+        from the end the flow enters by (the low end; the high end when the net flow runs towards
+        -axis) to that position, a length whichever way the channel runs.
 
     Returns
     -------
@@ -183,7 +188,7 @@ def mixing_length(profile: pd.DataFrame, *, target: float = 0.9, reference: str 
         at or above it; the first position when that plane is already mixed;
         NaN when no plane reaches ``target`` (or, against the inflow, when the
         first section along the flow is of one phase: see
-        :func:`cross_sections`). Subtract the inlet position for a length.
+        :func:`cross_sections`). Subtract the inlet position for a length (``ends``).
 
     Raises
     ------
@@ -217,9 +222,10 @@ def mixing_length(profile: pd.DataFrame, *, target: float = 0.9, reference: str 
     if reached.size == 0:
         return np.nan
     i = int(reached[0])
-    if i == 0:
-        return float(x[0])
-    return float(x[i - 1] + (target - m[i - 1]) / (m[i] - m[i - 1]) * (x[i] - x[i - 1]))
+    at = float(x[0]) if i == 0 else float(x[i - 1] + (target - m[i - 1]) / (m[i] - m[i - 1]) * (x[i] - x[i - 1]))
+    if ends is None:
+        return at
+    return float(ends[1]) - at if backwards else at - float(ends[0])
 
 
 def segregation_scale(mesh: Mesh, c_cell, *, resolution: int | None = None) -> float:

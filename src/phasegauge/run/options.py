@@ -141,6 +141,9 @@ class MeasureOptions:
     section_positions : tuple of float or None
     mixing_target : float
         Mixing index that defines the mixing length.
+    inflow_mean : float or None
+        The mean of c over the whole inflow, strictly between 0 and 1, that the sections' mixing
+        index against the inflow is read about; None: the first section along the flow's (flow-weighted).
     segregation_scale : bool
         Also compute Danckwerts' scale of segregation (from the autocorrelation
         on a regular resampling; costs an FFT of the domain per step).
@@ -221,6 +224,7 @@ class MeasureOptions:
     section_count: int = 20
     section_positions: tuple | None = None
     mixing_target: float = 0.9
+    inflow_mean: float | None = None
     segregation_scale: bool = False
     drift_tolerance: float = 1e-3
     strict: bool = False
@@ -312,6 +316,12 @@ class MeasureOptions:
                               fix="sharp (volume-of-fluid) or diffuse (phase-field)")
         if not 0.0 < float(self.mixing_target) <= 1.0:
             raise OptionError("mixing target must lie in (0, 1]", fix="0.9 is common practice")
+        if self.inflow_mean is not None:
+            set_(self, "inflow_mean", float(self.inflow_mean))
+            if not 0.0 < self.inflow_mean < 1.0:
+                raise OptionError(f"inflow mean must lie strictly between 0 and 1, found {self.inflow_mean:g}",
+                                  fix="give the flow-weighted mean of c over every inlet together (0.25 where a "
+                                      "quarter of the flow is dye), or leave it out")
         if self.free_energy is not None:
             set_(self, "free_energy", _free_energy_model(self.free_energy))
         if self.box is not None:

@@ -20,6 +20,7 @@ import numpy as np
 
 from ..errors import (AnalysisError, FieldNotFoundError, InputError, InputFileNotFound, MeshWarning,
                       PhasegaugeError, PhasegaugeWarning, SeriesError, UnsupportedMeshError, short_text)
+from ..model.axes import AXIS_INDEX
 from ..model.fields import vector_field
 from ..model.indicator import make_indicator
 from ..model.outline import MeshOutline
@@ -247,7 +248,9 @@ def analyse_step(step, options, *, contour_dir: str | None = None, reported_mesh
             else:
                 profile = mixing.cross_sections(mesh, ind, **planes, threads=threads)
             # against the whole inflow: a section of pure carrier (ahead of a front) is not "mixed"
-            m["mixing_length"] = mixing.mixing_length(profile, target=options.mixing_target)
+            # measured from the end of the mesh the flow enters by
+            ends = tuple(float(e) for e in mesh.bounds[:, AXIS_INDEX[options.section_axis]])
+            m["mixing_length"] = mixing.mixing_length(profile, target=options.mixing_target, ends=ends)
             profile.insert(0, "time", step.time)
             profile.insert(0, "step", step.index)
             result.profile = profile
@@ -269,7 +272,8 @@ def _section_arguments(options, u_cell, u_point, u_location) -> dict:
     """The planes and the velocity of the step's sections: what the section operator and the
     profile both take (:func:`phasegauge.analysis.mixing.cross_sections`)."""
     return {"axis": options.section_axis, "positions": options.section_positions, "count": options.section_count,
-            "velocity": u_cell if u_location == "cell" else u_point, "velocity_location": u_location}
+            "velocity": u_cell if u_location == "cell" else u_point, "velocity_location": u_location,
+            "inflow_mean": options.inflow_mean}
 
 
 def _sections_beside(mesh, ind, options, planes: dict, threads: int):
