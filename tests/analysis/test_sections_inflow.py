@@ -224,7 +224,7 @@ def test_a_first_section_that_carries_part_of_the_flow_is_no_inflow():
     ux = np.where(x < 1, 1.0, 2.0)
     u = np.stack([ux, np.zeros_like(ux), np.zeros_like(ux)], axis=1)
     c = np.where(x < 1, (y < 0.5).astype(float), 0.25 + 0.5 * y)
-    with pytest.warns(PhasegaugeWarning, match=r"carries a net flow of 1, against 2 through the median section"):
+    with pytest.warns(PhasegaugeWarning, match=r"carries a net flow of 1, against 2 through the next section"):
         table = cross_sections(mesh, c, positions=[0.25, 1.25, 1.5, 1.75], velocity=u, c_location="cell",
                                velocity_location="cell")
     np.testing.assert_allclose(table["flow_rate"], [1, 2, 2, 2], rtol=1e-12)
@@ -242,17 +242,50 @@ def test_dye_injected_into_carrier_downstream_of_the_first_section(carrier):
     # far above 1, by Danckwerts' formula by hand), and the mixing length landed in pure carrier
     mesh, x, y, u = _channel(10)
     c = np.where(x < 1, carrier, np.where(y < 0.3, 1.0, carrier))
-    with pytest.warns(PhasegaugeWarning, match="than a segregated inflow would"):
+    with pytest.warns(PhasegaugeWarning, match=r"\(x = 0.25\) is uniform .* no segregated inflow"):
         table = cross_sections(mesh, c, positions=[0.25, 0.75, 1.25, 1.75], velocity=u, c_location="cell",
                                velocity_location="cell")
     column = np.sort(np.unique(np.round(y, 12)))
     w = 6 * column * (1 - column)
-    assert _danckwerts(np.where(column < 0.3, 1.0, carrier), w, carrier) > 1.25
+    assert _danckwerts(np.where(column < 0.3, 1.0, carrier), w, carrier) > 1.25  # what it read before
     assert table["mixing_index_inflow"].isna().all() and np.isnan(mixing_length(table))
-    # the inflow's mean given (dye and carrier streams together): kept, with the same warning if far
+    # the inflow's mean given (dye and carrier streams together): used
     given = cross_sections(mesh, c, positions=[0.25, 1.25, 1.75], velocity=u, c_location="cell",
                            velocity_location="cell", inflow_mean=0.2)
     assert (given["inflow_mean"] == 0.2).all() and given["mixing_index_inflow"].notna().all()
+
+
+@pytest.mark.parametrize("dye", [0.3, 0.7])
+def test_a_dye_front_is_no_refused_inflow_whatever_the_dye_share(dye):
+    # review 44: a check of I about the inflow mean above 1.25 refused a dye front once the dye was over
+    # 56 % of the inflow (a pure-carrier section reads I = m / (1 - m) about the inflow mean m). By hand:
+    # the sections ahead of the front read I = m / (1 - m), unmixed, and the inflow stays defined
+    mesh, x, y, u = _channel(10)
+    streams = (y < dye).astype(float)  # a flow-weighted share of dye, not dye itself: computed below
+    c = np.where(x < 1, streams, 0.0)
+    with warnings.catch_warnings():
+        warnings.simplefilter("error")
+        table = cross_sections(mesh, c, positions=[0.25, 0.75, 1.25, 1.75], velocity=u, c_location="cell",
+                               velocity_location="cell")
+    column = np.sort(np.unique(np.round(y, 12)))
+    w = 6 * column * (1 - column)
+    m = float(np.sum(w * (column < dye)) / np.sum(w))
+    np.testing.assert_allclose(table["segregation_intensity_inflow"].iloc[2:], m / (1 - m), rtol=1e-10)
+
+
+def test_the_inflow_flow_check_reads_two_sections_and_tolerates_a_slow_change():
+    # review 44: with two sections the check was skipped; a volume flow growing 3 % per unit length was
+    # refused. Outside reference: the net flows, int u dy (analytic: 1, 2; 1 + 0.03 x)
+    mesh, x, y, _ = _channel(10)
+    c = (y < 0.5).astype(float)
+    for ux, refused in ((np.where(x < 1, 1.0, 2.0), True), (1.0 + 0.03 * x, False)):
+        u = np.stack([ux, np.zeros_like(ux), np.zeros_like(ux)], axis=1)
+        with warnings.catch_warnings(record=True) as caught:
+            warnings.simplefilter("always")
+            table = cross_sections(mesh, c, positions=[0.25, 1.75], velocity=u, c_location="cell",
+                                   velocity_location="cell")
+        said = [str(w.message) for w in caught if "carries a net flow" in str(w.message)]
+        assert bool(said) == refused and table["inflow_mean"].isna().all() == refused
 
 
 def test_the_mixing_length_is_a_distance_from_the_inlet_end():

@@ -55,12 +55,17 @@ ONE_PHASE = 1e-9
 #: flow weights would mix forward and backward flow (a variance could come out negative), so its flow-
 #: weighted columns take area weights (our threshold)
 BACKFLOW_TOLERANCE = 0.01
-#: the first section's net flow differing from the median section's by more than this share of it does
-#: not cut the whole inflow: a channel at an angle to the axis, an inlet between sections (our threshold)
+#: the first section's net flow differing from the next section's by more than this share of it does not
+#: cut the whole inflow: a channel at an angle to the axis, an inlet between them (our threshold; a volume
+#: flow that grows slowly along the channel changes a few per cent over many sections, not between two)
 FLOW_MISMATCH = 0.05
-#: a section whose intensity of segregation about the inflow mean exceeds this is farther from it than a
-#: segregated inflow (I = 1) with some overshoot: the first section is not what flows there (our threshold)
-INFLOW_MISMATCH = 1.25
+#: nor does one whose net flow differs from the median of the other sections' by more than this share of
+#: it: an inlet or outlet further downstream (our threshold)
+FLOW_MISMATCH_FAR = 0.25
+#: a first section whose own intensity of segregation is under this is uniform (mixing index above 0.97):
+#: no segregated inflow to measure mixing against (dye injected downstream into carrier at c = 0.01, or a
+#: premixed inflow; our threshold)
+UNIFORM_INFLOW = 1e-3
 
 
 #: how to mend an inflow section the sections' figures cannot be read against
@@ -91,18 +96,27 @@ def _area_weighted_notes(table: pd.DataFrame, global_axis: int) -> list:
 
 
 def _partial_inflow(table: pd.DataFrame, first: int, where: str) -> str | None:
-    """Why the first section's net flow cannot be the whole inflow (it differs from the median
-    section's by more than :data:`FLOW_MISMATCH` of it), or None."""
+    """Why the first section's net flow cannot be the whole inflow, or None: it differs from the next
+    section's along the flow by more than :data:`FLOW_MISMATCH` of it, or from the median of the
+    others' by more than :data:`FLOW_MISMATCH_FAR`."""
     flow = table["flow_rate"].to_numpy()
-    finite = flow[np.isfinite(flow)]
-    if finite.size < 3 or not np.isfinite(flow[first]):
+    if flow.size < 2 or not np.isfinite(flow[first]):
         return None
-    median = float(np.median(finite))
-    if median == 0 or abs(flow[first] - median) <= FLOW_MISMATCH * abs(median):
+    order = np.argsort(table["position"].to_numpy(), kind="stable")
+    if first == order[-1]:
+        order = order[::-1]  # along the flow, from the first section
+    others = flow[order[1:]]
+    others = others[np.isfinite(others)]
+    if others.size == 0:
         return None
-    return (f"{where} carries a net flow of {flow[first]:.4g}, against {median:.4g} through the median section, "
-            "so it does not cut the whole inflow (a channel at an angle to the axis, or an inlet or outlet between "
-            "the sections)")
+    near, median = float(others[0]), float(np.median(others))
+    if abs(flow[first] - near) <= FLOW_MISMATCH * abs(near) and \
+            abs(flow[first] - median) <= FLOW_MISMATCH_FAR * abs(median):
+        return None
+    return (f"{where} carries a net flow of {flow[first]:.4g}, against {near:.4g} through the next section and "
+            f"{median:.4g} through the median one, so it does not cut the whole inflow (a channel at an angle to "
+            "the axis, an inlet or outlet between the sections, a velocity that is not finite over part of it, "
+            "or a volume flow that changes along the channel)")
 
 
 def normalize_axis(mesh: Mesh, axis) -> tuple[int, int]:
@@ -360,11 +374,10 @@ def cross_sections(mesh: Mesh, c_point_or_indicator, *, axis="x", positions=None
     out of the statistics and ``flow_rate`` but not of ``area``. Flow weights are signed, so a
     plane where more than 1 % of int |u.n| dA runs against its net flow (``backflow_fraction``)
     takes area weights, with a warning. Taken from the first plane, the inflow is refused (NaN
-    inflow columns, a warning) where that plane's net flow differs from the median plane's by more
-    than 5 % (it does not cut the whole inflow), and so is any inflow mean where a plane lies
-    farther from it than a segregated inflow would (I about it above 1.25: an inlet downstream, or
-    an unsteady flow; given, it is kept with the warning). Values of c are not clipped, so
-    overshoots can make I > 1.
+    inflow columns, a warning) where that plane's net flow differs from the next plane's by more
+    than 5 % or from the others' median by more than 25 % (it does not cut the whole inflow), and
+    where that plane is uniform (its own I under 1e-3: nothing segregated to mix, an inlet further
+    downstream). Values of c are not clipped, so overshoots can make I > 1.
 
     References
     ----------
@@ -389,7 +402,7 @@ def cross_sections_noted(mesh: Mesh, c_point_or_indicator, *, axis="x", position
     warnings would land among the caller's in no fixed order: the caller gives them where it reads
     the table. The same arguments, table and errors as :func:`cross_sections`.
     """
-    if inflow_mean is not None and not (np.isfinite(inflow_mean) and ONE_PHASE < inflow_mean < 1 - ONE_PHASE):
+    if inflow_mean is not None and not (np.isfinite(inflow_mean) and 0.0 < inflow_mean < 1.0):
         raise OptionError(f"inflow_mean must be a number strictly between 0 and 1, found {inflow_mean!r} (a "
                           "mixture of one phase has no segregation to measure against)",
                           fix="give the mean of c over the inflow, or leave it out")
@@ -474,29 +487,19 @@ def cross_sections_noted(mesh: Mesh, c_point_or_indicator, *, axis="x", position
             inflow_mean = table["mean_area_weighted"].iloc[first]
         where = f"the first section along the flow ({AXIS_NAMES[global_axis]} = {positions[first]:.6g})"
         problem = _partial_inflow(table, first, where) if u is not None else None  # the cause, when so
+        own = table["segregation_intensity_flow" if u is not None else "segregation_intensity"].iloc[first]
         if problem is None and np.isfinite(inflow_mean) and not ONE_PHASE < inflow_mean < 1 - ONE_PHASE:
             problem = f"{where} is of one phase (mean c {float(inflow_mean):.3g})"
+        elif problem is None and np.isfinite(own) and own < UNIFORM_INFLOW:
+            problem = (f"{where} is uniform (mean c {float(inflow_mean):.3g}, intensity of segregation "
+                       f"{float(own):.2g}): no segregated inflow to measure mixing against (an inlet further "
+                       "downstream, such as dye injected into the carrier, or a premixed inflow)")
         if problem:
             notes.append(PhasegaugeWarning(f"{problem}, so the mixing index against the inflow, and the mixing "
                                            f"length read from it, are undefined: {_INFLOW_FIX}"))
             inflow_mean = np.nan  # no index against it, not a huge or a wrong one
     table["inflow_mean"] = float(inflow_mean) if len(table) else np.nan
     table["segregation_intensity_inflow"] = [_about(*m, shift, float(inflow_mean)) for m in moments]
-    far = table["segregation_intensity_inflow"].to_numpy() > INFLOW_MISMATCH
-    if far.any():
-        k = int(np.flatnonzero(far)[0])
-        reference = "the inflow mean given" if given else f"the inflow mean (of the section at " \
-                    f"{AXIS_NAMES[global_axis]} = {positions[first]:.6g})"
-        intensity = float(table["segregation_intensity_inflow"].iloc[k])
-        notes.append(PhasegaugeWarning(
-            f"the section at {AXIS_NAMES[global_axis]} = {positions[k]:.6g} lies farther from {reference}, "
-            f"{float(inflow_mean):.3g}, than a segregated inflow would (I = {intensity:.3g} about it, "
-            f"{int(far.sum())} section(s) so): an inlet lies downstream of the inflow section, or the flow "
-            "is not steady" + ("" if given else f"; the mixing index against the inflow, and the mixing length, "
-                               f"are left undefined: {_INFLOW_FIX}")))
-        if not given:
-            table["inflow_mean"] = np.nan
-            table["segregation_intensity_inflow"] = np.nan
     with np.errstate(invalid="ignore"):
         table["mixing_index"] = 1.0 - np.sqrt(table["segregation_intensity"])
         table["mixing_index_flow"] = 1.0 - np.sqrt(table["segregation_intensity_flow"])

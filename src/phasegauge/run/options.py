@@ -317,9 +317,13 @@ class MeasureOptions:
         if not 0.0 < float(self.mixing_target) <= 1.0:
             raise OptionError("mixing target must lie in (0, 1]", fix="0.9 is common practice")
         if self.inflow_mean is not None:
-            set_(self, "inflow_mean", float(self.inflow_mean))
+            given = self.inflow_mean
+            try:
+                set_(self, "inflow_mean", float(given))
+            except (TypeError, ValueError):
+                set_(self, "inflow_mean", float("nan"))
             if not 0.0 < self.inflow_mean < 1.0:
-                raise OptionError(f"inflow mean must lie strictly between 0 and 1, found {self.inflow_mean:g}",
+                raise OptionError(f"inflow mean must lie strictly between 0 and 1, found {given!r}",
                                   fix="give the flow-weighted mean of c over every inlet together (0.25 where a "
                                       "quarter of the flow is dye), or leave it out")
         if self.free_energy is not None:
