@@ -16,15 +16,20 @@ def test_public_names_import():
         assert hasattr(compare, name), name
 
 
-def test_pair_times_default_tolerance_is_half_the_smaller_interval():
-    # A every 0.1, B every 0.25 (offset by 0.01): tolerance 0.05 pairs 0.0, 0.5, 1.0 only
+def test_pair_times_default_tolerance_is_a_tenth_of_the_smaller_interval():
+    # A every 0.1, B every 0.25 (offset by 0.01): the tolerance 0.01 pairs 0.0, 0.5, 1.0 only; half an
+    # interval (0.05) paired 0.3 with 0.26 and 0.8 with 0.76, 0.4 of an interval apart (audit 10: a drop
+    # moving at 0.3 then read 0.0155 of Hausdorff distance that was its motion, not a shape difference)
     ta = np.round(np.arange(0, 1.0001, 0.1), 12)
     tb = np.array([0.01, 0.26, 0.51, 0.76, 1.01])
     pairs, ua, ub = pair_times(ta, tb)
     assert list(pairs.columns) == ["step_a", "step_b", "time_a", "time_b"]
-    assert pairs[["step_a", "step_b"]].values.tolist() == [[0, 0], [3, 1], [5, 2], [8, 3], [10, 4]]
-    assert ua == [1, 2, 4, 6, 7, 9]
-    assert ub == []
+    assert pairs[["step_a", "step_b"]].values.tolist() == [[0, 0], [5, 2], [10, 4]]
+    assert ua == [1, 2, 3, 4, 6, 7, 8, 9]
+    assert ub == [1, 3]
+    # outputs 0.1 and 0.15 apart: only the common times 0, 0.3, 0.6 pair (0.15 - 0.1 is 0.0499999 in binary)
+    pairs, _, _ = pair_times(np.round(np.arange(0, 0.61, 0.1), 12), np.round(np.arange(0, 0.61, 0.15), 12))
+    assert pairs["time_a"].tolist() == pytest.approx([0.0, 0.3, 0.6])
 
 
 def test_pair_times_one_to_one_and_series_labels():

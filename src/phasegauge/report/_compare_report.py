@@ -101,7 +101,9 @@ def write_compare_report(out, result, *, specs, overlays, inputs: list, version:
     page.heading("Key figures")
     page.key_values(_compare_key_figures(result))
     page.heading("Paired steps")
-    unpaired = "; ".join(f"{k}: {len(v)} unpaired" for k, v in result.unpaired.items())
+    unpaired = "; ".join(f"{k}: {len(v)} unpaired" + (f" (steps {', '.join(str(int(i)) for i in v[:8])}"
+                                                         f"{' ...' if len(v) > 8 else ''})" if len(v) else "")
+                         for k, v in result.unpaired.items())
     origins = {k: v for k, v in (time_origins or {}).items() if v}
     said = ("; times from " + ", ".join(f"{k}: {v}" for k, v in origins.items())) if origins else ""
     page.paragraph(f"{len(result.pairs)} paired times; {unpaired}{said}.")
@@ -135,6 +137,8 @@ def write_compare_report(out, result, *, specs, overlays, inputs: list, version:
                       fields={"runs": [dataclasses.asdict(s) for s in specs], "level": level,
                               "options": {label: _plain(dataclasses.asdict(run.options)) for label, run in
                                           zip(result.labels, (result.first, result.second))},
+                              "unpaired_steps": {label: [int(i) for i in steps]
+                                                 for label, steps in result.unpaired.items()},
                               "skipped_steps": {label: list(run.skipped) for label, run in
                                                 zip(result.labels, (result.first, result.second))},
                               "warnings": {label: list(run.flags) for label, run in
@@ -171,11 +175,43 @@ def _kind_said(run) -> str:
     return _kind(run)[0] + (f" ({'; '.join(said)})" if said else "")
 
 
+#: domains whose volumes differ by more than this share are not the same case's (our threshold)
+_DOMAIN_SHARE = 0.01
+#: lengths that differ by this factor or more suggest different length units (metres against millimetres)
+_UNITS_FACTOR = 5.0
+
+
+def _domain_findings(result) -> list:
+    """A finding where the two runs' domains differ in volume (first measured steps), and where their
+    lengths differ so much that the runs may be in different length units."""
+    volumes, dims = [], []
+    for run in (result.first, result.second):
+        steps = run.steps
+        if steps is None or "domain_volume" not in steps or not len(steps):
+            return []
+        volumes.append(float(steps["domain_volume"].iloc[0]))
+        dims.append(max(int(getattr(r, "dimension", 0) or 0) for r in run.results) if run.results else 0)
+    a, b = volumes
+    if not (a > 0 and b > 0) or abs(a - b) <= _DOMAIN_SHARE * max(a, b):
+        return []
+    ratio = a / b
+    length = ratio ** (1.0 / max(dims[0], 1)) if dims[0] == dims[1] and dims[0] else float("nan")
+    said = (f"the domains differ: {result.labels[0]}'s volume {a:.4g}, {result.labels[1]}'s {b:.4g} "
+            f"(ratio {ratio:.3g})")
+    if length >= _UNITS_FACTOR or length <= 1.0 / _UNITS_FACTOR:
+        return [f"{said}: their lengths differ by a factor of about {length:.3g}, so the runs may be in different "
+                "length units (metres against millimetres): every shape measure on the common grid and every "
+                "volume compares the units, not the runs; convert one run's mesh to the other's units"]
+    return [f"{said}: figures over the whole domain (mean_indicator, the mixing columns, domain and phase "
+            "volumes) compare the domains, not the runs"]
+
+
 def _compare_findings(result) -> list:
     """Each run's flags (named by its label), a note when the interfaces are of different kinds, and
     every reference check that failed."""
-    found = [f"{label}: {flag}" for label, run in zip(result.labels, (result.first, result.second))
-             for flag in run.flags]
+    found = _domain_findings(result)
+    found += [f"{label}: {flag}" for label, run in zip(result.labels, (result.first, result.second))
+              for flag in run.flags]
     kinds = [_kind(run) for run in (result.first, result.second)]
     if {kinds[0][0], kinds[1][0]} == {"diffuse", "sharp"}:
         shown = "; ".join(f"{label} {_kind_said(run)}, {cells:.2g} cells across" for label, run, (_, cells) in

@@ -14,6 +14,7 @@ arrays it draws.
 
 from __future__ import annotations
 
+import os
 import time
 import warnings
 from dataclasses import dataclass
@@ -87,7 +88,7 @@ def compare_runs(first: RunSpec, second: RunSpec, *, out=None, overwrite: bool =
     level : float
         Indicator level of the interfaces.
     time_tolerance : float, optional
-        Steps pair when their times differ by at most this (default: half the
+        Steps pair when their times differ by at most this (default: a tenth of the
         smaller median output interval).
     spacing : float, optional
         Spacing of the common sampling grid (default: finer than both meshes).
@@ -144,6 +145,10 @@ def _compare_runs(first, second, *, out, overwrite, level, time_tolerance, spaci
         check_threads(threads)
     started = time.time()
     labels = (first.label or "first", second.label or "second")
+    if rising_bubble and first.velocity is None:
+        warnings.warn(PhasegaugeWarning("the rising-bubble check reads the bubble's rise velocity from the first "
+                                        "run's velocity field, which was not given, so its velocity checks read n/a: "
+                                        "give --velocity-a (recipe: velocity in [first])"), stacklevel=3)
 
     def open_both():
         with warnings.catch_warnings():  # each measure run reports its series' warnings
@@ -154,7 +159,9 @@ def _compare_runs(first, second, *, out, overwrite, level, time_tolerance, spaci
     both = open_both()  # discovered once for the output check and the sampling plan
     try:  # each run's step choice and its times checked before either is measured
         chosen = tuple(_chosen(spec, series, flag) for spec, series, flag in zip((first, second), both, "ab"))
+        _one_time_axis(both, chosen)
         predicted = _some_pair(both, chosen, time_tolerance)
+        table = read_reference_table(reference_table) if reference_table else None  # a bad file before measuring
     except BaseException:
         for series in both:
             series.close()
@@ -207,9 +214,10 @@ def _compare_runs(first, second, *, out, overwrite, level, time_tolerance, spaci
         checks.append(references.check_rising_bubble(references.bubble_history(res_a.droplets))
                       .assign(run=labels[0]))
     if reference_table:
-        checks.append(references.check_against_table(_reference_quantities(res_a),
-                                                      read_reference_table(reference_table))
-                      .assign(run=labels[0]))
+        try:
+            checks.append(references.check_against_table(_reference_quantities(res_a), table).assign(run=labels[0]))
+        except OptionError as err:  # named by the file
+            raise OptionError(err.what, where=os.fspath(reference_table), fix=err.fix) from None
     reference_checks = pd.concat(checks, ignore_index=True) if checks else pd.DataFrame()
     result = CompareResult(comparison=comparison, pairs=pairs,
                            unpaired={labels[0]: list(unpaired_a), labels[1]: list(unpaired_b)},
@@ -277,6 +285,31 @@ def _chosen(spec: RunSpec, series, flag: str) -> list:
     if problem is not None:
         raise problem
     return picked
+
+
+def _one_time_axis(both, chosen) -> None:
+    """Refuse two runs of which one numbers its steps (no times stored: 0, 1, 2 ...) and the other
+    stores its times: paired by time they would compare unrelated moments. A run's first chosen file is
+    read whole first (not an XDMF file's): a time it stores beyond its head is found when it is read."""
+    from ..errors import SeriesError
+    from ..io._formats import read_mesh_file, time_from_field_data
+
+    numbered = [all(s.steps[i].time_origin == "index" for i in c) for s, c in zip(both, chosen)]
+    if numbered[0] == numbered[1]:
+        return
+    k = numbered.index(True)
+    step = both[k].steps[chosen[k][0]]
+    if not step.path.lower().endswith((".xdmf", ".xmf")):
+        try:
+            if time_from_field_data(read_mesh_file(step.path).field_data) is not None:
+                return
+        except PhasegaugeError:  # named when the step is measured
+            return
+    which, flag = ("first", "a") if k == 0 else ("second", "b")
+    raise SeriesError(f"the {which} run's files store no times, so its steps are numbered 0, 1, 2 ..., while the "
+                      "other run's times are stored: paired by time they would compare unrelated moments",
+                      where=both[k].path, fix=f"give a 'time,path' listing of the {which} run's steps as its path "
+                      f"(PATH_{flag.upper()}; recipe: path in [{which}])")
 
 
 def _some_pair(both, chosen, time_tolerance):

@@ -205,17 +205,17 @@ def measure(path, field: str | None = None, *, options: MeasureOptions | None = 
         from ._selection import chosen_steps
 
         # the chosen steps' times must increase (a restart's repeated steps may be left out)
-        problem = series.time_problem(chosen_steps(series.times, steps=options.steps, time_from=options.time_from,
-                                                   time_to=options.time_to, every=options.every,
-                                                   where=series.path))
+        indices = chosen_steps(series.times, steps=options.steps, time_from=options.time_from,
+                               time_to=options.time_to, every=options.every, where=series.path)
+        problem = series.time_problem(indices)
         if problem is not None:
             raise problem
         check_output_place(series, out)
         from ..report._files import output_transaction
 
         with output_transaction(out) as txn:
-            return _measure(series, options, out, txn, workers=workers, threads=threads, scheduler=scheduler,
-                            overwrite=overwrite, resume=resume, progress=progress,
+            return _measure(series, indices, options, out, txn, workers=workers, threads=threads,
+                            scheduler=scheduler, overwrite=overwrite, resume=resume, progress=progress,
                             contours=contours, snapshots=snapshots, notes=notes,
                             invocation=invocation or {"python": "phasegauge.measure"},
                             output={"plot_format": plot_format, "keep_cache": bool(keep_cache)},
@@ -263,18 +263,15 @@ def _records(caught) -> list:
             for w in caught if issubclass(w.category, PhasegaugeWarning)]
 
 
-def _measure(series, options, out, txn, *, workers, threads, scheduler, overwrite, resume, progress,
+def _measure(series, indices, options, out, txn, *, workers, threads, scheduler, overwrite, resume, progress,
              contours, snapshots, notes, invocation, output, progress_label="steps") -> MeasureResult:
     from .assemble import TrackingFeed, assemble
     from .cache import StepCache, code_digest
     from .executors import run_steps
     from .progress import Progress
-    from ._selection import chosen_steps
     from .step import StepRunner
 
     started = time.time()
-    indices = chosen_steps(series.times, steps=options.steps, time_from=options.time_from,
-                           time_to=options.time_to, every=options.every, where=series.path)
     n = len(indices)
     cache = contour_dir = None
     if out is not None:
@@ -317,8 +314,9 @@ def _measure(series, options, out, txn, *, workers, threads, scheduler, overwrit
         from ._report_data import measure_report_data
 
         write_measure_report(out, result, **measure_report_data(series, result), started=started,
-                             execution={"workers": workers, "threads": threads, "scheduler": scheduler, "resume": resume,
-                                        "contours": bool(contours), "invocation": invocation, **output})
+                             execution={"workers": workers, "threads": threads, "scheduler": scheduler,
+                                        "resume": resume, "contours": bool(contours), "invocation": invocation,
+                                        **output})
         if not output["keep_cache"]:
             import shutil
 

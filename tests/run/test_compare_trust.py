@@ -1,0 +1,88 @@
+"""A comparison an analyst can trust: runs in other length units or domains, steps numbered against
+stored times, a bad reference table, and the unpaired steps named.
+
+Outside references: the domains' volumes as written (1 against 1e6: a mesh scaled by 1000, analytic),
+the steps' times as written, and the reference table's columns as written.
+"""
+
+import json
+
+import meshio
+import numpy as np
+import pytest
+import pyvista
+
+from phasegauge.errors import OptionError, SeriesError
+from phasegauge.meshgen import grid_mesh
+from phasegauge.run.compare import RunSpec, compare_runs
+
+TIMES = [0.0, 0.1, 0.2, 0.3]
+
+
+def _series(folder, *, scale=1.0, size=1.0, times=TIMES, stored=True):
+    """A drop of radius 0.25 size at the middle of a square of side ``size``, coordinates times ``scale``."""
+    folder.mkdir()
+    mesh = grid_mesh((16, 16), [(0, size), (0, size)], kind="quad")
+    points = np.c_[mesh.points[:, :2] * scale, np.zeros(mesh.n_points)]
+    r = np.linalg.norm(mesh.cell_centroids - 0.5 * size, axis=1)
+    for k, t in enumerate(times):
+        grid = pyvista.from_meshio(meshio.Mesh(points, [("quad", mesh.blocks[0].connectivity)]))
+        grid.cell_data["c"] = (r < 0.25 * size).astype(float)
+        if stored:
+            grid.field_data["TimeValue"] = np.array([t])  # the time in the file, as VTK writes it
+        grid.save(folder / f"s_{k}.vtu")
+    return str(folder)
+
+
+def test_runs_in_other_length_units_are_a_finding(tmp_path):
+    # audit 10: metres against millimetres read Dice 0 at every step, no finding, exit 0
+    out = tmp_path / "c"
+    compare_runs(RunSpec(_series(tmp_path / "m"), "c"), RunSpec(_series(tmp_path / "mm", scale=1000.0), "c"),
+                 out=str(out))
+    page = (out / "report.html").read_text()
+    assert "their lengths differ by a factor of about 0.001" in page and "different length units" in page
+    # a domain twice as wide: the whole-domain figures compare the domains
+    out = tmp_path / "d"
+    compare_runs(RunSpec(_series(tmp_path / "one"), "c"), RunSpec(_series(tmp_path / "two", size=2.0), "c"),
+                 out=str(out))
+    page = (out / "report.html").read_text()
+    assert "the domains differ" in page and "(ratio 0.25)" in page and "length units" not in page
+
+
+def test_steps_numbered_against_stored_times_are_refused_before_measuring(tmp_path, monkeypatch):
+    # audit 10: real times against step numbers were paired (t = 0 with step 0) with no finding
+    import phasegauge.run.measure as measure_module
+
+    measured = []
+    original = measure_module.measure
+    monkeypatch.setattr(measure_module, "measure", lambda *a, **k: measured.append(a[0]) or original(*a, **k))
+    timed, numbered = _series(tmp_path / "t"), _series(tmp_path / "n", times=[9, 9, 9, 9], stored=False)
+    with pytest.raises(SeriesError, match="the second run's files store no times") as err:
+        compare_runs(RunSpec(timed, "c"), RunSpec(numbered, "c"))
+    assert "'time,path' listing" in err.value.fix and measured == []
+    compare_runs(RunSpec(numbered, "c"), RunSpec(numbered, "c"))  # both numbered: paired by number
+
+
+def test_a_reference_table_is_named_and_the_unpaired_steps_listed(tmp_path):
+    table = tmp_path / "ref.csv"
+    table.write_text("quantity,time,value,tolerance\nmax:rise_speed,,0.24,0.01\n")
+    with pytest.raises(OptionError) as err:
+        compare_runs(RunSpec(_series(tmp_path / "a"), "c"), RunSpec(_series(tmp_path / "b"), "c"),
+                     reference_table=str(table))
+    assert "needs column 'rise_speed'" in err.value.what and err.value.where == str(table)
+    out = tmp_path / "c"
+    compare_runs(RunSpec(_series(tmp_path / "x"), "c", label="x"),
+                 RunSpec(_series(tmp_path / "y", times=[0.0, 0.15, 0.3, 0.45]), "c", label="y"), out=str(out))
+    manifest = json.loads((out / "manifest.json").read_text())
+    assert manifest["unpaired_steps"] == {"x": [1, 2], "y": [1, 3]}  # 0.1, 0.2 and 0.15, 0.45: no partner
+    assert "x: 2 unpaired (steps 1, 2)" in (out / "report.html").read_text()
+
+
+def test_a_rising_bubble_check_without_the_velocity_says_so(tmp_path):
+    from phasegauge.errors import PhasegaugeWarning
+
+    with pytest.warns(PhasegaugeWarning, match="give --velocity-a"):
+        result = compare_runs(RunSpec(_series(tmp_path / "a"), "c"), RunSpec(_series(tmp_path / "b"), "c"),
+                              rising_bubble=True)
+    checks = result.reference_checks
+    assert (checks.loc[checks["quantity"].str.contains("velocity"), "verdict"] == "n/a").all()
