@@ -86,3 +86,27 @@ def test_a_rising_bubble_check_without_the_velocity_says_so(tmp_path):
                               rising_bubble=True)
     checks = result.reference_checks
     assert (checks.loc[checks["quantity"].str.contains("velocity"), "verdict"] == "n/a").all()
+
+
+def test_a_2d_run_against_a_slab_one_cell_thick_is_refused_before_measuring(tmp_path, monkeypatch):
+    # audit 10: refused only after both runs were measured, naming neither run; the slab, measured as 2D
+    # by measure, is 3D to the comparison's common grid (which the message now says)
+    import phasegauge.run.measure as measure_module
+
+    measured = []
+    original = measure_module.measure
+    monkeypatch.setattr(measure_module, "measure", lambda *a, **k: measured.append(a[0]) or original(*a, **k))
+    slab = tmp_path / "slab"
+    slab.mkdir()
+    mesh = grid_mesh((8, 8, 1), [(0, 1), (0, 1), (0, 0.05)], kind="hexahedron")
+    for k, t in enumerate(TIMES):
+        grid = pyvista.from_meshio(meshio.Mesh(mesh.points, [("hexahedron", mesh.blocks[0].connectivity)]))
+        grid.cell_data["c"] = (np.linalg.norm(mesh.cell_centroids[:, :2] - 0.5, axis=1) < 0.25).astype(float)
+        grid.field_data["TimeValue"] = np.array([t])
+        grid.save(slab / f"s_{k}.vtu")
+    flat = _series(tmp_path / "flat")
+    from phasegauge.errors import InputError
+
+    with pytest.raises(InputError, match="run A is 2D and run B is 3D \\(a 3D mesh one cell thick") as err:
+        compare_runs(RunSpec(flat, "c"), RunSpec(str(slab), "c"))
+    assert flat in err.value.where and str(slab) in err.value.where and measured == []

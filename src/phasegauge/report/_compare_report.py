@@ -220,7 +220,9 @@ def _compare_findings(result) -> list:
         found.append(f"the interfaces are of different kinds ({shown}): {', '.join(present) or 'the widths'} measure "
                      "each method's interface, so their differences compare the methods, not the flow; where the "
                      "interface is curved the phase volumes differ too, at second order in the diffuse band's width "
-                     "(the band is not symmetric about a curved contour)")
+                     "(the band is not symmetric about a curved contour), and with them the diffuse run's droplet "
+                     "diameters and circularity (a circle reads about 1 + pi^2 eps^2 / (6 R^2) instead of 1: the "
+                     "rising-bubble check's circularity band is narrower than that on a coarse band)")
     checks = result.reference_checks
     if checks is not None and len(checks) and "verdict" in checks:
         for row in checks[checks["verdict"] == "fail"].itertuples(index=False):

@@ -117,13 +117,33 @@ def plan_sampling(series_a, series_b, *, spacing=None, time_tolerance=None, chos
                 return empty
             mesh_a = series_a.read_mesh(first[0])
             mesh_b = series_b.read_mesh(first[1])
-        grid = cmp.common_grid(mesh_a, mesh_b, spacing=spacing)
+        problem = _space_problem(mesh_a, mesh_b, series_a.path, series_b.path)
+        grid = None if problem else cmp.common_grid(mesh_a, mesh_b, spacing=spacing)
     except PhasegaugeError:
         return empty
     finally:
         series_a.close()  # the measure runs' workers open their own files
         series_b.close()
+    if problem is not None:  # refused before either run is measured
+        raise problem
     return SamplingPlan(grid, (mesh_a.signature, mesh_b.signature), steps, _axis_names(mesh_a))
+
+
+def _space_problem(mesh_a, mesh_b, path_a: str, path_b: str):
+    """An :class:`InputError` naming both runs where their meshes differ in dimension or plane
+    (:func:`phasegauge.analysis._resample.check_same_space`), else None; a 3D mesh one cell thick,
+    which measure reads as 2D, is 3D to the common grid."""
+    from ..analysis._resample import check_same_space
+    from ..errors import InputError
+
+    try:
+        check_same_space(mesh_a, mesh_b)
+    except InputError as err:
+        thin = " (a 3D mesh one cell thick, which measure reads as 2D, is 3D to the common grid of a comparison)" \
+            if mesh_a.dimension != mesh_b.dimension else ""
+        return InputError(f"{err.what}{thin}", where=f"{path_a}; {path_b}",
+                          fix="compare runs written in the same dimension and plane")
+    return None
 
 
 def _predicted_pairs(series_a, series_b, time_tolerance, chosen=(None, None)):
