@@ -88,25 +88,36 @@ def test_a_rising_bubble_check_without_the_velocity_says_so(tmp_path):
     assert (checks.loc[checks["quantity"].str.contains("velocity"), "verdict"] == "n/a").all()
 
 
-def test_a_2d_run_against_a_slab_one_cell_thick_is_refused_before_measuring(tmp_path, monkeypatch):
-    # audit 10: refused only after both runs were measured, naming neither run; the slab, measured as 2D
-    # by measure, is 3D to the comparison's common grid (which the message now says)
-    import phasegauge.run.measure as measure_module
-
-    measured = []
-    original = measure_module.measure
-    monkeypatch.setattr(measure_module, "measure", lambda *a, **k: measured.append(a[0]) or original(*a, **k))
-    slab = tmp_path / "slab"
-    slab.mkdir()
-    mesh = grid_mesh((8, 8, 1), [(0, 1), (0, 1), (0, 0.05)], kind="hexahedron")
+def _slab(folder, layers=1, depth=0.05):
+    """The drop of :func:`_series` on hexahedra ``layers`` cells thick, ``depth`` deep."""
+    folder.mkdir()
+    mesh = grid_mesh((16, 16, layers), [(0, 1), (0, 1), (0, depth)], kind="hexahedron")
     for k, t in enumerate(TIMES):
         grid = pyvista.from_meshio(meshio.Mesh(mesh.points, [("hexahedron", mesh.blocks[0].connectivity)]))
         grid.cell_data["c"] = (np.linalg.norm(mesh.cell_centroids[:, :2] - 0.5, axis=1) < 0.25).astype(float)
         grid.field_data["TimeValue"] = np.array([t])
-        grid.save(slab / f"s_{k}.vtu")
-    flat = _series(tmp_path / "flat")
-    from phasegauge.errors import InputError
+        grid.save(folder / f"s_{k}.vtu")
+    return str(folder)
 
-    with pytest.raises(InputError, match="run A is 2D and run B is 3D \\(a 3D mesh one cell thick") as err:
-        compare_runs(RunSpec(flat, "c"), RunSpec(str(slab), "c"))
-    assert flat in err.value.where and str(slab) in err.value.where and measured == []
+
+def test_a_slab_one_cell_thick_is_compared_as_measured_in_2d(tmp_path, monkeypatch):
+    # audit 10: a slab (measured as 2D) against a 2D run was refused after both runs were measured, naming
+    # neither; two slabs read NaN Hausdorff distances (a grid one sample thick) and the mismatch as a
+    # slab's volume. Now the common grid is 2D as measure reads them. Outside check: the same drop on the
+    # same 16 x 16 cells in both runs: Dice 1 and no distance between the interfaces (analytic)
+    from phasegauge.errors import InputError
+    import phasegauge.run.measure as measure_module
+
+    flat, slab = _series(tmp_path / "flat"), _slab(tmp_path / "slab")
+    for a, b in ((flat, slab), (slab, slab)):
+        table = compare_runs(RunSpec(a, "c"), RunSpec(b, "c")).comparison
+        assert len(table) == 4 and (table["dice"] > 1 - 1e-9).all()
+        assert (table["hausdorff"] < 1e-9).all() and (table["mismatch_volume"] < 1e-9).all()
+    # a 3D run against a 2D one: refused before either is measured, naming both
+    measured = []
+    original = measure_module.measure
+    monkeypatch.setattr(measure_module, "measure", lambda *a, **k: measured.append(a[0]) or original(*a, **k))
+    thick = _slab(tmp_path / "thick", layers=4, depth=1.0)
+    with pytest.raises(InputError, match="run A is 2D and run B is 3D") as err:
+        compare_runs(RunSpec(flat, "c"), RunSpec(thick, "c"))
+    assert flat in err.value.where and thick in err.value.where and measured == []

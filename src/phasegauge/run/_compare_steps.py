@@ -115,8 +115,8 @@ def plan_sampling(series_a, series_b, *, spacing=None, time_tolerance=None, chos
             steps, first = predicted or _predicted_pairs(series_a, series_b, time_tolerance, chosen)
             if first is None:
                 return empty
-            mesh_a = series_a.read_mesh(first[0])
-            mesh_b = series_b.read_mesh(first[1])
+            mesh_a = _as_measured(series_a.read_mesh(first[0]))
+            mesh_b = _as_measured(series_b.read_mesh(first[1]))
         problem = _space_problem(mesh_a, mesh_b, series_a.path, series_b.path)
         grid = None if problem else cmp.common_grid(mesh_a, mesh_b, spacing=spacing)
     except PhasegaugeError:
@@ -129,19 +129,25 @@ def plan_sampling(series_a, series_b, *, spacing=None, time_tolerance=None, chos
     return SamplingPlan(grid, (mesh_a.signature, mesh_b.signature), steps, _axis_names(mesh_a))
 
 
+def _as_measured(mesh):
+    """The mesh as measure reads it: a 3D mesh one cell thick as the 2D mesh of its lower plane, so
+    the common grid, and the sampling in the measure runs' workers, are 2D there too."""
+    from ..model.quasi2d import one_cell_thick
+
+    flat = one_cell_thick(mesh) if mesh.dimension == 3 else None
+    return mesh if flat is None else flat.mesh
+
+
 def _space_problem(mesh_a, mesh_b, path_a: str, path_b: str):
-    """An :class:`InputError` naming both runs where their meshes differ in dimension or plane
-    (:func:`phasegauge.analysis._resample.check_same_space`), else None; a 3D mesh one cell thick,
-    which measure reads as 2D, is 3D to the common grid."""
+    """An :class:`InputError` naming both runs where their meshes (as measured) differ in dimension
+    or plane (:func:`phasegauge.analysis._resample.check_same_space`), else None."""
     from ..analysis._resample import check_same_space
     from ..errors import InputError
 
     try:
         check_same_space(mesh_a, mesh_b)
     except InputError as err:
-        thin = " (a 3D mesh one cell thick, which measure reads as 2D, is 3D to the common grid of a comparison)" \
-            if mesh_a.dimension != mesh_b.dimension else ""
-        return InputError(f"{err.what}{thin}", where=f"{path_a}; {path_b}",
+        return InputError(err.what, where=f"{path_a}; {path_b}",
                           fix="compare runs written in the same dimension and plane")
     return None
 
@@ -215,11 +221,12 @@ def paired_shapes(pairs, results_a, results_b, plan: SamplingPlan, *, series, sp
 def _read_pair(row, grids: dict, *, series, specs, spacing):
     """Read both steps of a pair and sample them (a pair the measure workers did not sample)."""
     from ..model.indicator import make_indicator
+    from .step import flatten_step
 
     fields = []
     for run, step in ((0, int(row.step_a)), (1, int(row.step_b))):
         spec = specs[run]
-        s = series[run].read(step)
+        s, _ = flatten_step(series[run].read(step), None)  # as measure reads it: a slab as 2D
         c = make_indicator(s.mesh, s.fields, spec.field, range=spec.range, phase=spec.phase,
                            where=s.info.where, warn=False, field_location=spec.field_location)
         fields.append((s.mesh, c.point))
