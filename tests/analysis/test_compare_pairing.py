@@ -16,8 +16,8 @@ def test_public_names_import():
         assert hasattr(compare, name), name
 
 
-def test_pair_times_default_tolerance_is_a_tenth_of_the_smaller_interval():
-    # A every 0.1, B every 0.25 (offset by 0.01): the tolerance 0.01 pairs 0.0, 0.5, 1.0 only; half an
+def test_pair_times_default_tolerance_is_a_quarter_of_the_smaller_interval():
+    # A every 0.1, B every 0.25 (offset by 0.01): the tolerance 0.025 pairs 0.0, 0.5, 1.0 only; half an
     # interval (0.05) paired 0.3 with 0.26 and 0.8 with 0.76, 0.4 of an interval apart (audit 10: a drop
     # moving at 0.3 then read 0.0155 of Hausdorff distance that was its motion, not a shape difference)
     ta = np.round(np.arange(0, 1.0001, 0.1), 12)
@@ -30,6 +30,11 @@ def test_pair_times_default_tolerance_is_a_tenth_of_the_smaller_interval():
     # outputs 0.1 and 0.15 apart: only the common times 0, 0.3, 0.6 pair (0.15 - 0.1 is 0.0499999 in binary)
     pairs, _, _ = pair_times(np.round(np.arange(0, 0.61, 0.1), 12), np.round(np.arange(0, 0.61, 0.15), 12))
     assert pairs["time_a"].tolist() == pytest.approx([0.0, 0.3, 0.6])
+    # outputs written at the first solver step past each 0.1, the step 0.02 in one run, 0.0154 in the other
+    # (review 45: a tenth of the interval left a quarter of such steps unpaired)
+    ta = np.ceil(np.arange(51) * 0.1 / 0.02 - 1e-9) * 0.02
+    tb = np.ceil(np.arange(51) * 0.1 / 0.0154 - 1e-9) * 0.0154
+    assert len(pair_times(ta, tb)[0]) == 51
 
 
 def test_pair_times_one_to_one_and_series_labels():

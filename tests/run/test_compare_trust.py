@@ -121,3 +121,27 @@ def test_a_slab_one_cell_thick_is_compared_as_measured_in_2d(tmp_path, monkeypat
     with pytest.raises(InputError, match="run A is 2D and run B is 3D") as err:
         compare_runs(RunSpec(flat, "c"), RunSpec(thick, "c"))
     assert flat in err.value.where and thick in err.value.where and measured == []
+
+
+def test_domains_on_other_origins_and_near_missed_times_are_named(tmp_path):
+    # review 45: a run moved by +0.5 in x compared half its domain, with no finding; steps written for
+    # the same times by a long solver step (0.03 apart at an interval of 0.1) were left unpaired unsaid
+    import warnings
+
+    from phasegauge.errors import PhasegaugeWarning
+
+    a, moved = _series(tmp_path / "a"), tmp_path / "moved"
+    moved.mkdir()
+    for name in sorted((tmp_path / "a").iterdir()):
+        grid = pyvista.read(name)
+        grid.points[:, 0] += 0.5
+        grid.save(moved / name.name)
+    out = tmp_path / "c"
+    compare_runs(RunSpec(a, "c"), RunSpec(str(moved), "c"), out=str(out))
+    assert "the domains lie apart (first and second start at x from 0 against 0.5)" in (out / "report.html").read_text()
+    late = _series(tmp_path / "late", times=[0.0, 0.13, 0.23, 0.33])
+    with warnings.catch_warnings(record=True) as caught:
+        warnings.simplefilter("always")
+        result = compare_runs(RunSpec(a, "c"), RunSpec(late, "c"))
+    said = [str(w.message) for w in caught if issubclass(w.category, PhasegaugeWarning)]
+    assert len(result.pairs) == 1 and any("3 unpaired step(s) of the first run lie within 0.4" in m for m in said)

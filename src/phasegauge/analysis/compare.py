@@ -63,7 +63,7 @@ def _median_interval(t: np.ndarray) -> float:
 
 #: the default time tolerance of :func:`pair_times`, as a share of the smaller median output interval
 #: (our threshold)
-PAIR_SHARE = 0.1
+PAIR_SHARE = 0.25
 
 
 def pair_times(times_a, times_b, *, tolerance: float | None = None):
@@ -75,11 +75,12 @@ def pair_times(times_a, times_b, *, tolerance: float | None = None):
         Output times of each run. A Series' index gives the step labels,
         otherwise steps are numbered 0, 1, ...
     tolerance : float, optional, in time units
-        Largest accepted time difference; default a tenth of the smaller median
+        Largest accepted time difference; default a quarter of the smaller median
         output interval of the two runs (exact matches only when neither run
         has two distinct times): outputs written at the first solver step past
-        each output time pair, outputs at other times do not (half an interval
-        paired t = 0.1 with 0.15, and the shapes' difference was the flow's motion).
+        each output time pair while the solver step is under a quarter of the
+        interval; outputs at other times do not (half an interval paired t = 0.1
+        with 0.15, and the shapes' difference was the flow's motion).
 
     Returns
     -------

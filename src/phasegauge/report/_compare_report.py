@@ -193,7 +193,7 @@ def _domain_findings(result) -> list:
         dims.append(max(int(getattr(r, "dimension", 0) or 0) for r in run.results) if run.results else 0)
     a, b = volumes
     if not (a > 0 and b > 0) or abs(a - b) <= _DOMAIN_SHARE * max(a, b):
-        return []
+        return _offset_findings(result)
     ratio = a / b
     length = ratio ** (1.0 / max(dims[0], 1)) if dims[0] == dims[1] and dims[0] else float("nan")
     said = (f"the domains differ: {result.labels[0]}'s volume {a:.4g}, {result.labels[1]}'s {b:.4g} "
@@ -204,6 +204,24 @@ def _domain_findings(result) -> list:
                 "volume compares the units, not the runs; convert one run's mesh to the other's units"]
     return [f"{said}: figures over the whole domain (mean_indicator, the mixing columns, domain and phase "
             "volumes) compare the domains, not the runs"]
+
+
+def _offset_findings(result) -> list:
+    """A finding where domains of the same volume lie apart: their boxes differ by more than
+    :data:`_DOMAIN_SHARE` of the larger extent along some axis (another origin)."""
+    boxes = [next((r.outline.bounds for r in run.results if getattr(r, "outline", None) is not None), None)
+             for run in (result.first, result.second)]  # each run's first measured step's mesh
+    if any(box is None for box in boxes):
+        return []
+    (lo_a, hi_a), (lo_b, hi_b) = (np.asarray(box, dtype=float) for box in boxes)
+    extent = np.maximum(hi_a - lo_a, hi_b - lo_b)
+    moved = np.abs(lo_a - lo_b) > _DOMAIN_SHARE * np.where(extent > 0, extent, 1.0)
+    if not moved.any():
+        return []
+    axes = ", ".join(f"{'xyz'[k]} from {lo_a[k]:.4g} against {lo_b[k]:.4g}" for k in np.flatnonzero(moved))
+    return [f"the domains lie apart ({result.labels[0]} and {result.labels[1]} start at {axes}): the shape "
+            "measures compare the runs where their domains overlap, on another origin's coordinates; move one "
+            "run's mesh so the two coincide"]
 
 
 def _compare_findings(result) -> list:

@@ -88,7 +88,7 @@ def compare_runs(first: RunSpec, second: RunSpec, *, out=None, overwrite: bool =
     level : float
         Indicator level of the interfaces.
     time_tolerance : float, optional
-        Steps pair when their times differ by at most this (default: a tenth of the
+        Steps pair when their times differ by at most this (default: a quarter of the
         smaller median output interval).
     spacing : float, optional
         Spacing of the common sampling grid (default: finer than both meshes).
@@ -197,6 +197,8 @@ def _compare_runs(first, second, *, out, overwrite, level, time_tolerance, spaci
         times_a = pd.Series(res_a.steps["time"].to_numpy(), index=res_a.steps["step"].to_numpy())
         times_b = pd.Series(res_b.steps["time"].to_numpy(), index=res_b.steps["step"].to_numpy())
         pairs, unpaired_a, unpaired_b = cmp.pair_times(times_a, times_b, tolerance=time_tolerance)
+        if time_tolerance is None:
+            _near_misses(times_a, times_b, unpaired_a, unpaired_b)
         metrics = cmp.compare_metrics(res_a.steps, res_b.steps, pairs=pairs)
         n_pairs = len(pairs)
         keep = set(np.linspace(0, n_pairs - 1, min(snapshots, n_pairs)).round().astype(int)) if n_pairs else set()
@@ -285,6 +287,30 @@ def _chosen(spec: RunSpec, series, flag: str) -> list:
     if problem is not None:
         raise problem
     return picked
+
+
+def _near_misses(times_a, times_b, unpaired_a, unpaired_b) -> None:
+    """Warn where unpaired steps of the two runs lie within 0.4 of an output interval of each other:
+    outputs meant for the same times, written by a solver step longer than the default tolerance."""
+    from ..analysis.compare import PAIR_SHARE
+
+    if not len(unpaired_a) or not len(unpaired_b):
+        return
+    a, b = times_a[list(unpaired_a)].to_numpy(), np.sort(times_b[list(unpaired_b)].to_numpy())
+    steps = [np.diff(np.sort(t.to_numpy())) for t in (times_a, times_b)]
+    interval = min(float(np.median(d[d > 0])) for d in steps if np.any(d > 0)) if any(
+        np.any(d > 0) for d in steps) else np.nan
+    if not np.isfinite(interval):
+        return
+    at = np.clip(np.searchsorted(b, a), 1, max(b.size - 1, 1))
+    gap = np.minimum(np.abs(a - b[at - 1]), np.abs(b[np.minimum(at, b.size - 1)] - a))
+    near = gap[gap < 0.4 * interval]  # outputs half an interval apart (0.1 against 0.15) are other times
+    if near.size:
+        warnings.warn(PhasegaugeWarning(
+            f"{near.size} unpaired step(s) of the first run lie within 0.4 of an output interval of an unpaired step "
+            f"of the second (up to {near.max():.3g} apart; the default tolerance is a quarter of the interval, "
+            f"{PAIR_SHARE * interval:.3g}): if they were written for the same times by a long solver step, "
+            f"pair them with --time-tolerance {1.01 * near.max():.3g}"), stacklevel=4)
 
 
 def _one_time_axis(both, chosen) -> None:
