@@ -6,6 +6,7 @@ the steps' times as written, and the reference table's columns as written.
 """
 
 import json
+import pathlib
 
 import meshio
 import numpy as np
@@ -145,3 +146,30 @@ def test_domains_on_other_origins_and_near_missed_times_are_named(tmp_path):
         result = compare_runs(RunSpec(a, "c"), RunSpec(late, "c"))
     said = [str(w.message) for w in caught if issubclass(w.category, PhasegaugeWarning)]
     assert len(result.pairs) == 1 and any("3 unpaired step(s) of the first run lie within 0.4" in m for m in said)
+
+
+def test_a_slab_on_another_normal_coordinate_and_other_intervals_raise_nothing(tmp_path):
+    # review 46: a slab from z = -0.05 (its lower plane read as 2D) against a 2D run at z = 0 read "the domains
+    # lie apart"; runs written every 0.1 and every 0.13 got the near-miss warning, which would pair other moments
+    import warnings
+
+    from phasegauge.errors import InputError, PhasegaugeWarning
+
+    flat = _series(tmp_path / "flat")
+    slab = tmp_path / "slab"
+    slab.mkdir()
+    for name in sorted(pathlib.Path(_slab(tmp_path / "s0")).iterdir()):
+        grid = pyvista.read(name)
+        grid.points[:, 2] -= 0.05
+        grid.save(slab / name.name)
+    out = tmp_path / "c"
+    compare_runs(RunSpec(flat, "c"), RunSpec(str(slab), "c"), out=str(out))
+    assert "lie apart" not in (out / "report.html").read_text()
+    other = _series(tmp_path / "other", times=[0.0, 0.13, 0.26, 0.39])
+    with warnings.catch_warnings(record=True) as caught:
+        warnings.simplefilter("always")
+        compare_runs(RunSpec(flat, "c"), RunSpec(other, "c"))
+    assert not [w for w in caught if issubclass(w.category, PhasegaugeWarning) and "unpaired" in str(w.message)]
+    # a slab against a mesh two cells thick: refused, saying the slab was read as 2D
+    with pytest.raises(InputError, match="run A's mesh is one cell thick, so it is read as 2D"):
+        compare_runs(RunSpec(str(slab), "c"), RunSpec(_slab(tmp_path / "two", layers=2, depth=0.1), "c"))

@@ -174,6 +174,46 @@ def test_prepare_output_folder_rules(tmp_path):
     assert (mine / "notes.txt").read_text() == "keep"
 
 
+def test_overwrite_keeps_the_users_own_files_in_a_run_folder(tmp_path):
+    # audit 11: a note and a folder of one's own kept in a phasegauge output folder were deleted by --overwrite
+    src, out = _series(tmp_path / "run"), tmp_path / "out"
+    assert CliRunner().invoke(main, ["measure", src, "--field", "alpha", "-o", str(out), *FAST]).exit_code == 0
+    assert "written" in json.loads((out / _files.RUN_MARKER).read_text())  # what the run wrote
+    (out / "notes.txt").write_text("keep")
+    (out / "postpro").mkdir()
+    (out / "postpro" / "fig.py").write_text("keep")
+    run = CliRunner().invoke(main, ["measure", src, "--field", "alpha", "-o", str(out), "--overwrite", *FAST])
+    assert run.exit_code != 0 and "did not write (notes.txt, postpro)" in run.output
+    assert (out / "notes.txt").read_text() == "keep" and (out / "postpro" / "fig.py").read_text() == "keep"
+    (out / "notes.txt").unlink()
+    (out / "postpro" / "fig.py").unlink()
+    (out / "postpro").rmdir()
+    assert CliRunner().invoke(main, ["measure", src, "--field", "alpha", "-o", str(out), "--overwrite",
+                                     *FAST]).exit_code == 0
+
+
+def test_a_folder_another_run_is_writing_is_refused(tmp_path):
+    # audit 11: two runs writing one folder at once mixed their outputs and left the folder mislabelled.
+    # A run holds a lock while it writes; one left by a process that has ended is taken over
+    import socket
+
+    src, out = _series(tmp_path / "run"), tmp_path / "out"
+    out.mkdir()
+    sleeper = subprocess.Popen([sys.executable, "-c", "import time; time.sleep(60)"])
+    try:
+        (out / _files.RUN_LOCK).write_text(json.dumps({"host": socket.gethostname(), "pid": sleeper.pid}))
+        run = CliRunner().invoke(main, ["measure", src, "--field", "alpha", "-o", str(out), "--overwrite", *FAST])
+        assert run.exit_code != 0 and f"another phasegauge run (process {sleeper.pid}" in run.output
+        assert (out / _files.RUN_LOCK).exists() and not (out / "steps.csv").exists()
+    finally:
+        sleeper.kill()
+        sleeper.wait()
+    # the process has ended: its lock is stale, and the run takes the folder; no lock is left after it
+    run = CliRunner().invoke(main, ["measure", src, "--field", "alpha", "-o", str(out), "--overwrite", *FAST])
+    assert run.exit_code == 0, run.output
+    assert (out / "steps.csv").exists() and not (out / _files.RUN_LOCK).exists()
+
+
 # ------------------------------------------------------------------ killed and resumed
 def test_kill_with_two_workers_and_resume_gives_identical_tables(tmp_path):
     from conftest import subprocess_env

@@ -215,7 +215,9 @@ def _offset_findings(result) -> list:
         return []
     (lo_a, hi_a), (lo_b, hi_b) = (np.asarray(box, dtype=float) for box in boxes)
     extent = np.maximum(hi_a - lo_a, hi_b - lo_b)
-    moved = np.abs(lo_a - lo_b) > _DOMAIN_SHARE * np.where(extent > 0, extent, 1.0)
+    # along axes both runs span (a 2D run's or a flattened slab's normal coordinate does not count)
+    spanned = np.minimum(hi_a - lo_a, hi_b - lo_b) > 0
+    moved = spanned & (np.abs(lo_a - lo_b) > _DOMAIN_SHARE * np.where(spanned, extent, 1.0))
     if not moved.any():
         return []
     axes = ", ".join(f"{'xyz'[k]} from {lo_a[k]:.4g} against {lo_b[k]:.4g}" for k in np.flatnonzero(moved))

@@ -12,6 +12,8 @@ import contextvars
 import io
 import json
 import os
+import re
+import socket
 import secrets
 import shutil
 import struct
@@ -29,6 +31,11 @@ RUN_MARKER = ".phasegauge-run.json"
 
 #: folder inside an output folder that holds the earlier run's outputs while ``--overwrite`` runs
 PREVIOUS_RUN = ".previous-run"
+#: the file that marks an output folder a run is writing (host, process id): a second run is refused
+RUN_LOCK = ".phasegauge-lock"
+#: what an earlier run's folder may hold without a record of the files it wrote (older versions):
+#: phasegauge's own names and its tables', plots' and runs' name patterns
+_OUR_NAMES = re.compile(r"(manifest\.json|report\.html|\.cache|contours|run_.*|.*\.(csv|png|svg|pdf|json))")
 
 #: prefix of the temporary files of atomic writes
 TEMP_PREFIX = ".tmp-"
@@ -249,7 +256,9 @@ def prepare_output_folder(out, *, overwrite: bool = False, resume: bool = False,
         txn = None
     if os.path.exists(out) and not os.path.isdir(out):
         raise OutputError("exists and is not a folder", where=out, fix="choose another output folder")
-    exists = os.path.isdir(out) and bool(os.listdir(out))
+    exists = os.path.isdir(out) and any(name != RUN_LOCK for name in os.listdir(out))
+    if txn is not None and txn.lock is None:  # one run writes a folder at a time
+        txn.lock = _take_lock(out)
     if exists:
         owned = os.path.exists(marker)
         if resume:
@@ -276,9 +285,11 @@ def prepare_output_folder(out, *, overwrite: bool = False, resume: bool = False,
             raise OutputError("output folder exists", where=out,
                               fix="give --overwrite to replace it, --resume to finish an interrupted run, "
                                   "or another folder")
-        if not owned:
-            raise OutputError("exists and holds files phasegauge did not write, so it is not replaced",
-                              where=out, fix="choose an empty or new output folder")
+        foreign = _foreign_files(out, marker) if owned else []
+        if not owned or foreign:
+            said = f" ({', '.join(foreign[:3])}{' ...' if len(foreign) > 3 else ''})" if foreign else ""
+            raise OutputError(f"exists and holds files phasegauge did not write{said}, so it is not replaced",
+                              where=out, fix="move them out of it, or choose an empty or new output folder")
         if txn is not None:
             _set_aside(out)
         else:
@@ -303,14 +314,74 @@ def prepare_output_folder(out, *, overwrite: bool = False, resume: bool = False,
 
 def mark_complete(out) -> None:
     """Mark the run in ``out`` complete, keeping what :func:`prepare_output_folder` noted of it
-    (the run's inputs and options, and the code that measured it)."""
+    (the run's inputs and options, and the code that measured it) and the names it wrote there."""
     marker = os.path.join(os.fspath(out), RUN_MARKER)
     try:
         with open(marker, encoding="utf-8") as handle:
             noted = json.load(handle)
     except (OSError, ValueError):
         noted = {}
-    atomic_write_json(marker, {"run_key": noted.get("run_key", ""), "code": noted.get("code", ""), "state": "complete"})
+    written = sorted(n for n in os.listdir(os.fspath(out)) if n not in (RUN_MARKER, RUN_LOCK, PREVIOUS_RUN))
+    atomic_write_json(marker, {"run_key": noted.get("run_key", ""), "code": noted.get("code", ""), "state": "complete",
+                               "written": written})
+
+
+def _foreign_files(out: str, marker: str) -> list:
+    """Names in an earlier run's folder that it did not write: not in its marker's record (older
+    versions kept none: then not of phasegauge's names and patterns), temporaries aside."""
+    try:
+        with open(marker, encoding="utf-8") as handle:
+            written = json.load(handle).get("written")
+    except (OSError, ValueError, AttributeError):
+        written = None
+    ours = {RUN_MARKER, RUN_LOCK, PREVIOUS_RUN}
+    return sorted(n for n in os.listdir(out) if n not in ours and not n.startswith(TEMP_PREFIX)
+                  and (n not in written if written is not None else not _OUR_NAMES.fullmatch(n)))
+
+
+def _take_lock(out: str) -> str:
+    """Mark ``out`` as written by this process (:data:`RUN_LOCK`), creating the folder; refuse it
+    while another live run holds it (one of this host whose process has ended left it: taken over)."""
+    path = os.path.join(out, RUN_LOCK)
+    mine = {"host": socket.gethostname(), "pid": os.getpid()}
+    for _ in range(2):
+        try:
+            os.makedirs(out, exist_ok=True)
+            fd = os.open(path, os.O_CREAT | os.O_EXCL | os.O_WRONLY, 0o644)
+        except FileExistsError:
+            try:
+                with open(path, encoding="utf-8") as handle:
+                    held = json.load(handle)
+            except (OSError, ValueError):
+                held = {}
+            if held.get("host") == mine["host"] and not _alive(held.get("pid")):
+                with contextlib.suppress(OSError):
+                    os.remove(path)  # left by a run that was killed
+                continue
+            raise OutputError(f"another phasegauge run (process {held.get('pid', '?')} on {held.get('host', '?')}) "
+                              "is writing this folder", where=out,
+                              fix=f"wait for it to finish or choose another folder; if no run is writing it, remove "
+                                  f"{RUN_LOCK} from it") from None
+        except OSError as exc:
+            raise OutputError(f"cannot be written ({exc.strerror or exc})", where=out,
+                              fix="choose an output folder you can write to") from None
+        with os.fdopen(fd, "w", encoding="utf-8") as handle:
+            json.dump(mine, handle)
+        return path
+    raise OutputError("cannot mark the folder as this run's", where=out, fix="choose another output folder")
+
+
+def _alive(pid) -> bool:
+    """Whether process ``pid`` of this host still runs."""
+    if not isinstance(pid, int) or pid <= 0:
+        return False
+    try:
+        os.kill(pid, 0)
+    except ProcessLookupError:
+        return False
+    except OSError:  # it runs, as another user
+        return True
+    return True
 
 
 class _Transaction:
@@ -321,6 +392,7 @@ class _Transaction:
         self.existed_empty = os.path.isdir(out) and not os.listdir(out)
         self.mode = None  # set by prepare_output_folder: 'new', 'overwrite' or 'resume'
         self.worth_keeping = lambda: False  # finished work a failed run should leave for --resume
+        self.lock = None  # this run's RUN_LOCK file, once prepare_output_folder took it
 
 
 @contextlib.contextmanager
@@ -357,6 +429,9 @@ def output_transaction(out):
             shutil.rmtree(os.path.join(txn.out, PREVIOUS_RUN), ignore_errors=True)
     finally:
         _ACTIVE.reset(token)
+        if txn.lock is not None:
+            with contextlib.suppress(OSError):
+                os.remove(txn.lock)
 
 
 def _roll_back(txn: _Transaction, exc: Exception):
@@ -368,7 +443,7 @@ def _roll_back(txn: _Transaction, exc: Exception):
     try:
         if txn.mode == "overwrite" and os.path.isdir(aside):
             for name in os.listdir(out):
-                if name != PREVIOUS_RUN:
+                if name not in (PREVIOUS_RUN, RUN_LOCK):
                     _remove(os.path.join(out, name))
             for name in os.listdir(aside):
                 os.replace(os.path.join(aside, name), os.path.join(out, name))
@@ -395,7 +470,7 @@ def _set_aside(out: str) -> None:
         shutil.rmtree(aside)
     os.makedirs(aside)
     for name in os.listdir(out):
-        if name != PREVIOUS_RUN:
+        if name not in (PREVIOUS_RUN, RUN_LOCK):
             os.replace(os.path.join(out, name), os.path.join(aside, name))
 
 
@@ -431,4 +506,5 @@ def remove_temporaries(out: str, names: list | None = None) -> None:
 def _clear_owned(out: str) -> None:
     """Remove the outputs of an earlier run (only in a folder phasegauge owns)."""
     for name in os.listdir(out):
-        _remove(os.path.join(out, name))
+        if name != RUN_LOCK:
+            _remove(os.path.join(out, name))

@@ -115,9 +115,9 @@ def plan_sampling(series_a, series_b, *, spacing=None, time_tolerance=None, chos
             steps, first = predicted or _predicted_pairs(series_a, series_b, time_tolerance, chosen)
             if first is None:
                 return empty
-            mesh_a = _as_measured(series_a.read_mesh(first[0]))
-            mesh_b = _as_measured(series_b.read_mesh(first[1]))
-        problem = _space_problem(mesh_a, mesh_b, series_a.path, series_b.path)
+            mesh_a, flat_a = _as_measured(series_a.read_mesh(first[0]))
+            mesh_b, flat_b = _as_measured(series_b.read_mesh(first[1]))
+        problem = _space_problem(mesh_a, mesh_b, series_a.path, series_b.path, (flat_a, flat_b))
         grid = None if problem else cmp.common_grid(mesh_a, mesh_b, spacing=spacing)
     except PhasegaugeError:
         return empty
@@ -131,23 +131,27 @@ def plan_sampling(series_a, series_b, *, spacing=None, time_tolerance=None, chos
 
 def _as_measured(mesh):
     """The mesh as measure reads it: a 3D mesh one cell thick as the 2D mesh of its lower plane, so
-    the common grid, and the sampling in the measure runs' workers, are 2D there too."""
+    the common grid, and the sampling in the measure runs' workers, are 2D there too; and whether it
+    was so read."""
     from ..model.quasi2d import one_cell_thick
 
     flat = one_cell_thick(mesh) if mesh.dimension == 3 else None
-    return mesh if flat is None else flat.mesh
+    return (mesh, False) if flat is None else (flat.mesh, True)
 
 
-def _space_problem(mesh_a, mesh_b, path_a: str, path_b: str):
+def _space_problem(mesh_a, mesh_b, path_a: str, path_b: str, flat=(False, False)):
     """An :class:`InputError` naming both runs where their meshes (as measured) differ in dimension
-    or plane (:func:`phasegauge.analysis._resample.check_same_space`), else None."""
+    or plane (:func:`phasegauge.analysis._resample.check_same_space`), else None; ``flat`` says which
+    was a 3D mesh one cell thick, read as 2D."""
     from ..analysis._resample import check_same_space
     from ..errors import InputError
 
     try:
         check_same_space(mesh_a, mesh_b)
     except InputError as err:
-        return InputError(err.what, where=f"{path_a}; {path_b}",
+        said = "; ".join(f"run {run}'s mesh is one cell thick, so it is read as 2D, as measure reads it"
+                         for run, thin in zip("AB", flat) if thin)
+        return InputError(err.what + (f" ({said})" if said else ""), where=f"{path_a}; {path_b}",
                           fix="compare runs written in the same dimension and plane")
     return None
 

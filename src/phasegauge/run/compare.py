@@ -298,10 +298,12 @@ def _near_misses(times_a, times_b, unpaired_a, unpaired_b) -> None:
         return
     a, b = times_a[list(unpaired_a)].to_numpy(), np.sort(times_b[list(unpaired_b)].to_numpy())
     steps = [np.diff(np.sort(t.to_numpy())) for t in (times_a, times_b)]
-    interval = min(float(np.median(d[d > 0])) for d in steps if np.any(d > 0)) if any(
-        np.any(d > 0) for d in steps) else np.nan
-    if not np.isfinite(interval):
+    if not all(np.any(d > 0) for d in steps):
         return
+    intervals = [float(np.median(d[d > 0])) for d in steps]
+    interval = min(intervals)
+    if abs(intervals[0] - intervals[1]) > 0.05 * interval:
+        return  # other output intervals: their times differ by design, not by a solver step
     at = np.clip(np.searchsorted(b, a), 1, max(b.size - 1, 1))
     gap = np.minimum(np.abs(a - b[at - 1]), np.abs(b[np.minimum(at, b.size - 1)] - a))
     near = gap[gap < 0.4 * interval]  # outputs half an interval apart (0.1 against 0.15) are other times
