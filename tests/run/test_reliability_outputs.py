@@ -183,13 +183,47 @@ def test_overwrite_keeps_the_users_own_files_in_a_run_folder(tmp_path):
     (out / "postpro").mkdir()
     (out / "postpro" / "fig.py").write_text("keep")
     run = CliRunner().invoke(main, ["measure", src, "--field", "alpha", "-o", str(out), "--overwrite", *FAST])
-    assert run.exit_code != 0 and "did not write (notes.txt, postpro)" in run.output
+    assert run.exit_code != 0 and "did not write (notes.txt, postpro/fig.py)" in run.output
     assert (out / "notes.txt").read_text() == "keep" and (out / "postpro" / "fig.py").read_text() == "keep"
     (out / "notes.txt").unlink()
     (out / "postpro" / "fig.py").unlink()
     (out / "postpro").rmdir()
     assert CliRunner().invoke(main, ["measure", src, "--field", "alpha", "-o", str(out), "--overwrite",
                                      *FAST]).exit_code == 0
+
+
+def test_overwrite_keeps_the_users_files_in_the_runs_subfolders_and_after_a_resume(tmp_path):
+    # review 47: a file of one's own in contours/ was deleted by --overwrite (only top-level names were
+    # recorded), and one added before --resume was counted as the run's, then deleted by --overwrite
+    src, out = _series(tmp_path / "run"), tmp_path / "out"
+    base = ["measure", src, "--field", "alpha", "-o", str(out), "--analyses", "interface,droplets", "-q"]
+    assert CliRunner().invoke(main, base).exit_code == 0
+    (out / "contours" / "my_view.txt").write_text("keep")
+    run = CliRunner().invoke(main, base + ["--overwrite"])
+    assert run.exit_code != 0 and "contours/my_view.txt" in run.output
+    assert (out / "contours" / "my_view.txt").read_text() == "keep"
+    (out / "contours" / "my_view.txt").unlink()
+    marker = json.loads((out / _files.RUN_MARKER).read_text())
+    marker.pop("written")  # as a killed run leaves it
+    marker["state"] = "running"
+    (out / _files.RUN_MARKER).write_text(json.dumps(marker))
+    (out / "notes.txt").write_text("keep")
+    assert CliRunner().invoke(main, base + ["--resume"]).exit_code == 0
+    assert "notes.txt" not in json.loads((out / _files.RUN_MARKER).read_text())["written"]
+    run = CliRunner().invoke(main, base + ["--overwrite"])
+    assert run.exit_code != 0 and "notes.txt" in run.output and (out / "notes.txt").read_text() == "keep"
+
+
+def test_a_lock_of_this_very_process_is_stale(tmp_path):
+    # review 47: in a container a killed run and its resume are both process 1 of the same host, and the
+    # resume was refused as "another run"
+    import socket
+
+    src, out = _series(tmp_path / "run"), tmp_path / "out"
+    out.mkdir()
+    (out / _files.RUN_LOCK).write_text(json.dumps({"host": socket.gethostname(), "pid": os.getpid()}))
+    run = CliRunner().invoke(main, ["measure", src, "--field", "alpha", "-o", str(out), "--overwrite", *FAST])
+    assert run.exit_code == 0, run.output
 
 
 def test_a_folder_another_run_is_writing_is_refused(tmp_path):

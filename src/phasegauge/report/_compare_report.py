@@ -8,7 +8,7 @@ import time
 
 import numpy as np
 
-from ._files import RUN_MARKER, atomic_write_csv, atomic_write_json, atomic_write_text
+from ._files import atomic_write_csv, atomic_write_json, atomic_write_text, mark_complete
 from ._html import Page
 from ._drawing import save_figures
 from ._measure_report import CAUTION, kind_words, manifest
@@ -148,7 +148,7 @@ def write_compare_report(out, result, *, specs, overlays, inputs: list, version:
                               "time_origin": dict(time_origins or {})},
                       outputs=written, timings={"total_seconds": round(time.time() - started, 3)})
     atomic_write_json(os.path.join(out, "manifest.json"), record)
-    atomic_write_json(os.path.join(out, RUN_MARKER), {"run_key": "", "state": "complete"})
+    mark_complete(out)
 
 
 def _plain(options: dict) -> dict:

@@ -8,7 +8,7 @@ import time
 import numpy as np
 
 from ._canvas import TIME_LABEL, new_figure
-from ._files import RUN_MARKER, atomic_save_figure, atomic_write_csv, atomic_write_json
+from ._files import atomic_save_figure, atomic_write_csv, atomic_write_json, mark_complete
 from ._measure_report import manifest as run_manifest
 
 __all__ = ["write_convergence_report", "plot_convergence"]
@@ -94,4 +94,4 @@ def write_convergence_report(out, table, *, sources: list, safety_factor: float,
                             fields={"meshes": list(sources), "safety_factor": safety_factor, "options": options},
                             outputs=written, timings={"total_seconds": round(time.time() - started, 3)})
     atomic_write_json(os.path.join(out, "manifest.json"), manifest)
-    atomic_write_json(os.path.join(out, RUN_MARKER), {"run_key": "", "state": "complete"})
+    mark_complete(out)

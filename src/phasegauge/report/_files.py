@@ -278,6 +278,11 @@ def prepare_output_folder(out, *, overwrite: bool = False, resume: bool = False,
                                   "it cannot be resumed", where=out,
                                   fix="use --overwrite to measure it again with this version")
             remove_temporaries(out)
+            # files the earlier run did not write (a killed run's: by phasegauge's names) are not counted as
+            # this run's when it ends
+            kept = set(_foreign_files(out, marker))
+            atomic_write_json(marker, {**previous, "kept": [p for p in _files_in(out)
+                                                            if p in kept or p.split("/")[0] in kept]})
             if txn is not None:
                 txn.mode = "resume"
             return "resume"
@@ -314,29 +319,52 @@ def prepare_output_folder(out, *, overwrite: bool = False, resume: bool = False,
 
 def mark_complete(out) -> None:
     """Mark the run in ``out`` complete, keeping what :func:`prepare_output_folder` noted of it
-    (the run's inputs and options, and the code that measured it) and the names it wrote there."""
-    marker = os.path.join(os.fspath(out), RUN_MARKER)
+    (the run's inputs and options, the code that measured it, and the files found there when it
+    resumed that it did not write) and the files it wrote there (paths under ``out``, subfolders
+    included)."""
+    out = os.fspath(out)
+    marker = os.path.join(out, RUN_MARKER)
     try:
         with open(marker, encoding="utf-8") as handle:
             noted = json.load(handle)
     except (OSError, ValueError):
         noted = {}
-    written = sorted(n for n in os.listdir(os.fspath(out)) if n not in (RUN_MARKER, RUN_LOCK, PREVIOUS_RUN))
+    kept = set(noted.get("kept", ()))
+    written = sorted(path for path in _files_in(out) if path not in kept)
     atomic_write_json(marker, {"run_key": noted.get("run_key", ""), "code": noted.get("code", ""), "state": "complete",
                                "written": written})
 
 
+def _files_in(out: str) -> list:
+    """Every file under ``out`` as a path relative to it ('/'-separated), but the marker, the lock, the
+    earlier run set aside, the step cache (the run's own) and temporaries."""
+    found = []
+    for folder, dirs, files in os.walk(out):
+        if folder == out:
+            dirs[:] = [d for d in dirs if d not in (PREVIOUS_RUN, ".cache")]
+        rel = os.path.relpath(folder, out)
+        for name in files:
+            if folder == out and name in (RUN_MARKER, RUN_LOCK) or name.startswith(TEMP_PREFIX):
+                continue
+            found.append(name if rel == "." else f"{rel}/{name}".replace(os.sep, "/"))
+        if not files and not dirs and rel != ".":
+            found.append(rel.replace(os.sep, "/") + "/")  # an empty folder the run made
+    return found
+
+
 def _foreign_files(out: str, marker: str) -> list:
-    """Names in an earlier run's folder that it did not write: not in its marker's record (older
-    versions kept none: then not of phasegauge's names and patterns), temporaries aside."""
+    """Files in an earlier run's folder that it did not write (subfolders included): not in its
+    marker's record; older versions and killed runs kept none, so then those whose top-level name is
+    none of phasegauge's names and patterns."""
     try:
         with open(marker, encoding="utf-8") as handle:
             written = json.load(handle).get("written")
     except (OSError, ValueError, AttributeError):
         written = None
-    ours = {RUN_MARKER, RUN_LOCK, PREVIOUS_RUN}
-    return sorted(n for n in os.listdir(out) if n not in ours and not n.startswith(TEMP_PREFIX)
-                  and (n not in written if written is not None else not _OUR_NAMES.fullmatch(n)))
+    if written is not None:
+        written = set(written)
+        return [path for path in _files_in(out) if path not in written]
+    return sorted({path.split("/")[0] for path in _files_in(out) if not _OUR_NAMES.fullmatch(path.split("/")[0])})
 
 
 def _take_lock(out: str) -> str:
@@ -354,7 +382,7 @@ def _take_lock(out: str) -> str:
                     held = json.load(handle)
             except (OSError, ValueError):
                 held = {}
-            if held.get("host") == mine["host"] and not _alive(held.get("pid")):
+            if held.get("host") == mine["host"] and (held.get("pid") == mine["pid"] or not _alive(held.get("pid"))):
                 with contextlib.suppress(OSError):
                     os.remove(path)  # left by a run that was killed
                 continue

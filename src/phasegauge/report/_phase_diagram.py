@@ -8,8 +8,8 @@ import numpy as np
 
 from ..errors import OutputError
 from ._canvas import new_figure
-from ._files import (RUN_MARKER, atomic_save_figure, atomic_write_csv, atomic_write_json,
-                     output_transaction, prepare_output_folder)
+from ._files import (atomic_save_figure, atomic_write_csv, atomic_write_json,
+                     mark_complete, output_transaction, prepare_output_folder)
 
 __all__ = ["write_phase_diagram", "phase_diagram_figure"]
 
@@ -68,5 +68,5 @@ def write_phase_diagram(out, columns: dict, record: dict, *, overwrite: bool = F
         atomic_write_csv(files[0], pd.DataFrame(columns))
         atomic_save_figure(files[1], phase_diagram_figure(columns, record))
         atomic_write_json(files[2], record)
-        atomic_write_json(os.path.join(out, RUN_MARKER), {"run_key": "", "state": "complete"})
+        mark_complete(out)
     return files
