@@ -208,10 +208,13 @@ def test_overwrite_keeps_the_users_files_in_the_runs_subfolders_and_after_a_resu
     marker["state"] = "running"
     (out / _files.RUN_MARKER).write_text(json.dumps(marker))
     (out / "notes.txt").write_text("keep")
+    (out / "contours" / "my_view.txt").write_text("keep")  # review 48: in a folder of the run's own name
     assert CliRunner().invoke(main, base + ["--resume"]).exit_code == 0
-    assert "notes.txt" not in json.loads((out / _files.RUN_MARKER).read_text())["written"]
+    written = json.loads((out / _files.RUN_MARKER).read_text())["written"]
+    assert "notes.txt" not in written and "contours/my_view.txt" not in written
     run = CliRunner().invoke(main, base + ["--overwrite"])
-    assert run.exit_code != 0 and "notes.txt" in run.output and (out / "notes.txt").read_text() == "keep"
+    assert run.exit_code != 0 and "contours/my_view.txt, notes.txt" in run.output
+    assert (out / "notes.txt").read_text() == "keep" and (out / "contours" / "my_view.txt").read_text() == "keep"
 
 
 def test_a_lock_of_this_very_process_is_stale(tmp_path):
@@ -224,6 +227,17 @@ def test_a_lock_of_this_very_process_is_stale(tmp_path):
     (out / _files.RUN_LOCK).write_text(json.dumps({"host": socket.gethostname(), "pid": os.getpid()}))
     run = CliRunner().invoke(main, ["measure", src, "--field", "alpha", "-o", str(out), "--overwrite", *FAST])
     assert run.exit_code == 0, run.output
+    # review 48: one held by this very process (another thread's run, its token) is live
+    (out / _files.RUN_LOCK).write_text(json.dumps({"host": socket.gethostname(), "pid": os.getpid(),
+                                                   "process": _files._PROCESS_TOKEN}))
+    run = CliRunner().invoke(main, ["measure", src, "--field", "alpha", "-o", str(out), "--overwrite", *FAST])
+    assert run.exit_code != 0 and "is writing this folder" in run.output
+    (out / _files.RUN_LOCK).unlink()
+    # a link to a folder kept in the run's folder is the user's: refused, named, kept
+    (tmp_path / "elsewhere").mkdir()
+    os.symlink(tmp_path / "elsewhere", out / "linked")
+    run = CliRunner().invoke(main, ["measure", src, "--field", "alpha", "-o", str(out), "--overwrite", *FAST])
+    assert run.exit_code != 0 and "(linked)" in run.output and (out / "linked").is_symlink()
 
 
 def test_a_folder_another_run_is_writing_is_refused(tmp_path):

@@ -36,6 +36,11 @@ RUN_LOCK = ".phasegauge-lock"
 #: what an earlier run's folder may hold without a record of the files it wrote (older versions):
 #: phasegauge's own names and its tables', plots' and runs' name patterns
 _OUR_NAMES = re.compile(r"(manifest\.json|report\.html|\.cache|contours|run_.*|.*\.(csv|png|svg|pdf|json))")
+#: the same for files in the contours folder: the interfaces and their listing
+_OUR_CONTOURS = re.compile(r"contours/(interface_\d+\.vtu|interface\.steps)")
+#: this process among all that had its number (a container restarted gives the same one): a lock that
+#: holds the number but not this token was left by an earlier process
+_PROCESS_TOKEN = secrets.token_hex(8)
 
 #: prefix of the temporary files of atomic writes
 TEMP_PREFIX = ".tmp-"
@@ -343,11 +348,13 @@ def _files_in(out: str) -> list:
         if folder == out:
             dirs[:] = [d for d in dirs if d not in (PREVIOUS_RUN, ".cache")]
         rel = os.path.relpath(folder, out)
-        for name in files:
+        links = [d for d in dirs if os.path.islink(os.path.join(folder, d))]  # not walked: an entry each
+        dirs[:] = [d for d in dirs if d not in links]
+        for name in files + links:
             if folder == out and name in (RUN_MARKER, RUN_LOCK) or name.startswith(TEMP_PREFIX):
                 continue
             found.append(name if rel == "." else f"{rel}/{name}".replace(os.sep, "/"))
-        if not files and not dirs and rel != ".":
+        if not files and not dirs and not links and rel != ".":
             found.append(rel.replace(os.sep, "/") + "/")  # an empty folder the run made
     return found
 
@@ -363,15 +370,17 @@ def _foreign_files(out: str, marker: str) -> list:
         written = None
     if written is not None:
         written = set(written)
-        return [path for path in _files_in(out) if path not in written]
-    return sorted({path.split("/")[0] for path in _files_in(out) if not _OUR_NAMES.fullmatch(path.split("/")[0])})
+        return sorted(path for path in _files_in(out) if path not in written)
+    return sorted({path if "/" in path and path.startswith("contours/") else path.split("/")[0]
+                   for path in _files_in(out) if not _OUR_NAMES.fullmatch(path.split("/")[0])
+                   or (path.startswith("contours/") and not _OUR_CONTOURS.fullmatch(path))})
 
 
 def _take_lock(out: str) -> str:
     """Mark ``out`` as written by this process (:data:`RUN_LOCK`), creating the folder; refuse it
     while another live run holds it (one of this host whose process has ended left it: taken over)."""
     path = os.path.join(out, RUN_LOCK)
-    mine = {"host": socket.gethostname(), "pid": os.getpid()}
+    mine = {"host": socket.gethostname(), "pid": os.getpid(), "process": _PROCESS_TOKEN}
     for _ in range(2):
         try:
             os.makedirs(out, exist_ok=True)
@@ -382,7 +391,8 @@ def _take_lock(out: str) -> str:
                     held = json.load(handle)
             except (OSError, ValueError):
                 held = {}
-            if held.get("host") == mine["host"] and (held.get("pid") == mine["pid"] or not _alive(held.get("pid"))):
+            earlier = held.get("pid") == mine["pid"] and held.get("process") != mine["process"]  # a restart's
+            if held.get("host") == mine["host"] and (earlier or not _alive(held.get("pid"))):
                 with contextlib.suppress(OSError):
                     os.remove(path)  # left by a run that was killed
                 continue
