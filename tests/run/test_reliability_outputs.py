@@ -381,3 +381,18 @@ def test_outputs_follow_the_umask_and_json_is_strict(tmp_path):
                 json.loads(open(path).read(), parse_constant=refuse)
                 checked += 1
     assert checked >= 2
+
+
+def test_a_killed_runs_folder_tells_the_users_files_by_names_and_the_runs_own_records(tmp_path):
+    # review 49: a killed run recorded nothing, so on --resume a campaign run folder's notes, a json of one's
+    # own and a contour write a kill cut short were judged by broad patterns (the first two taken as the
+    # run's, the last as the user's); a campaign's run folders keep their own records
+    out = tmp_path / "out"
+    (out / "run_a").mkdir(parents=True)
+    (out / "contours").mkdir()
+    (out / _files.RUN_MARKER).write_text(json.dumps({"run_key": "k", "state": "running"}))
+    (out / "run_a" / _files.RUN_MARKER).write_text(json.dumps({"state": "complete", "written": ["steps.csv"]}))
+    for name in ("steps.csv", "my_settings.json", "run_a/steps.csv", "run_a/notes.txt",
+                 "contours/interface_000001.vtu", "contours/.interface_000002.a1b2c3d4e5f6.vtu"):
+        (out / name).write_text("x")
+    assert _files._foreign_files(str(out), str(out / _files.RUN_MARKER)) == ["my_settings.json", "run_a/notes.txt"]

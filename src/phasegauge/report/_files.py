@@ -35,9 +35,12 @@ PREVIOUS_RUN = ".previous-run"
 RUN_LOCK = ".phasegauge-lock"
 #: what an earlier run's folder may hold without a record of the files it wrote (older versions):
 #: phasegauge's own names and its tables', plots' and runs' name patterns
-_OUR_NAMES = re.compile(r"(manifest\.json|report\.html|\.cache|contours|run_.*|.*\.(csv|png|svg|pdf|json))")
-#: the same for files in the contours folder: the interfaces and their listing
-_OUR_CONTOURS = re.compile(r"contours/(interface_\d+\.vtu|interface\.steps)")
+_OUR_NAMES = re.compile(r"(manifest|diffusion_audit|phase_diagram)\.json|report\.html|\.cache|contours|run_.*|"
+                        r"(campaign|comparison|convergence|droplet_statistics|droplets|events|lines|measured|pairs|"
+                        r"phase_diagram|probes|profiles|reference_checks|steps|steps_.*|validation|"
+                        r"validation_summary)\.csv|.*\.(png|svg|pdf)")
+#: the same for files in the contours folder: the interfaces, their listing, and a write a kill cut short
+_OUR_CONTOURS = re.compile(r"contours/(interface_\d+\.vtu|interface\.steps|\.interface_\d+\.[0-9a-f]+\.vtu)")
 #: this process among all that had its number (a container restarted gives the same one): a lock that
 #: holds the number but not this token was left by an earlier process
 _PROCESS_TOKEN = secrets.token_hex(8)
@@ -371,9 +374,31 @@ def _foreign_files(out: str, marker: str) -> list:
     if written is not None:
         written = set(written)
         return sorted(path for path in _files_in(out) if path not in written)
-    return sorted({path if "/" in path and path.startswith("contours/") else path.split("/")[0]
-                   for path in _files_in(out) if not _OUR_NAMES.fullmatch(path.split("/")[0])
-                   or (path.startswith("contours/") and not _OUR_CONTOURS.fullmatch(path))})
+    records = {}  # a campaign's run folders keep their own records: judged by those
+
+    def ours(path: str) -> bool:
+        top, _, rest = path.partition("/")
+        if top.startswith("run_") and rest:
+            if top not in records:
+                records[top] = _record(os.path.join(out, top))
+            if records[top] is not None:
+                return rest in records[top] or rest in (RUN_MARKER, RUN_LOCK) or rest.startswith(".cache/")
+        if top == "contours" and rest:
+            return bool(_OUR_CONTOURS.fullmatch(path))
+        return bool(_OUR_NAMES.fullmatch(top))
+
+    return sorted({path if "/" in path and path.split("/")[0] in ("contours", *records) else path.split("/")[0]
+                   for path in _files_in(out) if not ours(path)})
+
+
+def _record(folder: str):
+    """The files a finished run recorded in ``folder``'s marker (a set), or None."""
+    try:
+        with open(os.path.join(folder, RUN_MARKER), encoding="utf-8") as handle:
+            written = json.load(handle).get("written")
+    except (OSError, ValueError, AttributeError):
+        return None
+    return None if written is None else set(written)
 
 
 def _take_lock(out: str) -> str:
