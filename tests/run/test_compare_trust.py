@@ -77,6 +77,10 @@ def test_a_reference_table_is_named_and_the_unpaired_steps_listed(tmp_path):
     manifest = json.loads((out / "manifest.json").read_text())
     assert manifest["unpaired_steps"] == {"x": [1, 2], "y": [1, 3]}  # 0.1, 0.2 and 0.15, 0.45: no partner
     assert "x: 2 unpaired (steps 1, 2)" in (out / "report.html").read_text()
+    # review 50: a label of any text names one file in the folder (a slash made a subfolder)
+    compare_runs(RunSpec(_series(tmp_path / "p"), "c", label="r/1"), RunSpec(_series(tmp_path / "q"), "c"),
+                 out=str(tmp_path / "slash"))
+    assert (tmp_path / "slash" / "steps_r_1.csv").exists()
 
 
 def test_a_rising_bubble_check_without_the_velocity_says_so(tmp_path):

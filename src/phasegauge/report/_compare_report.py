@@ -4,6 +4,7 @@ from __future__ import annotations
 
 import dataclasses
 import os
+import re
 import time
 
 import numpy as np
@@ -87,8 +88,9 @@ def write_compare_report(out, result, *, specs, overlays, inputs: list, version:
             atomic_write_csv(os.path.join(out, name), frame)
             written.append(name)
     for label, res in zip(result.labels, (result.first, result.second)):
-        atomic_write_csv(os.path.join(out, f"steps_{label}.csv"), res.steps)
-        written.append(f"steps_{label}.csv")
+        name = "steps_{}.csv".format(re.sub(r"[^A-Za-z0-9_.-]+", "_", label))  # a label of any text: one file
+        atomic_write_csv(os.path.join(out, name), res.steps)
+        written.append(name)
     pngs = save_figures(out, compare_figures(result, overlays=overlays, level=level), written)
     a, b = result.labels
     page = Page("phasegauge comparison report",

@@ -36,7 +36,7 @@ RUN_LOCK = ".phasegauge-lock"
 #: what an earlier run's folder may hold without a record of the files it wrote (older versions):
 #: phasegauge's own names and its tables', plots' and runs' name patterns
 _OUR_NAMES = re.compile(r"(manifest|diffusion_audit|phase_diagram)\.json|report\.html|\.cache|contours|run_.*|"
-                        r"(campaign|comparison|convergence|droplet_statistics|droplets|events|lines|measured|pairs|"
+                        r"(campaign|comparison|convergence|droplet_statistics|droplets|events|lines|pairs|"
                         r"phase_diagram|probes|profiles|reference_checks|steps|steps_.*|validation|"
                         r"validation_summary)\.csv|.*\.(png|svg|pdf)")
 #: the same for files in the contours folder: the interfaces, their listing, and a write a kill cut short
