@@ -143,7 +143,8 @@ def test_domains_on_other_origins_and_near_missed_times_are_named(tmp_path):
         grid.save(moved / name.name)
     out = tmp_path / "c"
     compare_runs(RunSpec(a, "c"), RunSpec(str(moved), "c"), out=str(out))
-    assert "the domains lie apart (first and second start at x from 0 against 0.5)" in (out / "report.html").read_text()
+    page = (out / "report.html").read_text()
+    assert "the domains lie apart (first and second start at x from 0 against 0.5)" in page
     late = _series(tmp_path / "late", times=[0.0, 0.13, 0.23, 0.33])
     with warnings.catch_warnings(record=True) as caught:
         warnings.simplefilter("always")

@@ -23,8 +23,8 @@ from ..errors import InputFileNotFound, PhasegaugeError, SeriesError, Unreadable
 from ._claims import CheckedFiles, check_hdf5_claims
 
 __all__ = ["FileFormat", "register_format", "formats", "format_for", "mesh_suffixes", "read_mesh_file",
-           "peek_time", "TIME_NEEDS_FULL_READ", "time_from_field_data", "TIME_ARRAY_NAMES", "check_readable",
-           "stored_time", "StoredTime", "surface_file_problem", "SURFACE_SUFFIXES"]
+           "peek_time", "TIME_NEEDS_FULL_READ", "time_from_field_data", "stores_time", "TIME_ARRAY_NAMES",
+           "check_readable", "stored_time", "StoredTime", "surface_file_problem", "SURFACE_SUFFIXES"]
 
 #: the modules that declare formats, in the order their suffixes are listed
 FORMAT_MODULES = ("_vtk", "_multiblock", "_xdmf")
@@ -271,3 +271,13 @@ def time_from_field_data(field_data: dict, where: str = "") -> float | None:
             if value.size >= 1:
                 return stored_time(value[0], where=where, source=f"stored in the file's field data ({name})")
     return None
+
+
+def stores_time(path: str, checked: CheckedFiles | None = None) -> bool | None:
+    """Whether the file, read whole, stores its time in its field data (a large file may store it beyond
+    the head :func:`peek_time` reads); None when it cannot be read (its own error comes when its step is
+    read). ``checked``: as for :func:`read_mesh_file`."""
+    try:
+        return time_from_field_data(read_mesh_file(path, checked=checked).field_data) is not None
+    except PhasegaugeError:
+        return None

@@ -17,11 +17,11 @@ import warnings
 
 import numpy as np
 
-from ..errors import PhasegaugeError, SeriesError, SeriesWarning
-from ._formats import read_mesh_file, time_from_field_data
+from ..errors import SeriesError, SeriesWarning
+from ._formats import stores_time
 
-__all__ = ["NAME_NUMBER", "INTERVAL_TOLERANCE", "name_number", "natural_key", "digits_masked", "check_one_family", "warn_decimal_doubt",
-           "first_three"]
+__all__ = ["NAME_NUMBER", "INTERVAL_TOLERANCE", "name_number", "natural_key", "digits_masked", "check_one_family",
+           "warn_decimal_doubt", "with_folder_times", "first_three"]
 
 #: a number in a file or folder name, as names are ordered, masked and numbered: digits, with a
 #: decimal part and an exponent if they have them (solvers' time folders ``0.05`` and ``1e-05``)
@@ -70,10 +70,7 @@ def with_folder_times(files: list, steps: list, checked=None) -> list:
     if not any(re.search(r"[.eE]", n) for n in names) or any(s.time_origin not in ("index", "unknown") for s in steps):
         return steps
     first = next((s for s in steps if s.time_origin == "index"), None)
-    try:
-        if first is None or time_from_field_data(read_mesh_file(first.path, checked=checked).field_data) is not None:
-            return steps
-    except PhasegaugeError:  # read again, and named, when the step is measured
+    if first is None or stores_time(first.path, checked) is not False:  # unreadable: named when measured
         return steps
     return [dataclasses.replace(s, time=float(name_number(n)), time_origin="folder_name")
             if s.time_origin == "index" else s for s, n in zip(steps, names)]

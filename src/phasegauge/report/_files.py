@@ -366,13 +366,8 @@ def _foreign_files(out: str, marker: str) -> list:
     """Files in an earlier run's folder that it did not write (subfolders included): not in its
     marker's record; older versions and killed runs kept none, so then those whose top-level name is
     none of phasegauge's names and patterns."""
-    try:
-        with open(marker, encoding="utf-8") as handle:
-            written = json.load(handle).get("written")
-    except (OSError, ValueError, AttributeError):
-        written = None
+    written = _record(marker)
     if written is not None:
-        written = set(written)
         return sorted(path for path in _files_in(out) if path not in written)
     records = {}  # a campaign's run folders keep their own records: judged by those
 
@@ -380,7 +375,7 @@ def _foreign_files(out: str, marker: str) -> list:
         top, _, rest = path.partition("/")
         if top.startswith("run_") and rest:
             if top not in records:
-                records[top] = _record(os.path.join(out, top))
+                records[top] = _record(os.path.join(out, top, RUN_MARKER))
             if records[top] is not None:
                 return rest in records[top] or rest in (RUN_MARKER, RUN_LOCK) or rest.startswith(".cache/")
         if top == "contours" and rest:
@@ -391,10 +386,11 @@ def _foreign_files(out: str, marker: str) -> list:
                    for path in _files_in(out) if not ours(path)})
 
 
-def _record(folder: str):
-    """The files a finished run recorded in ``folder``'s marker (a set), or None."""
+def _record(marker: str):
+    """The files a finished run recorded in its marker (a set), or None (no record: a killed run's, an
+    older version's, or no marker)."""
     try:
-        with open(os.path.join(folder, RUN_MARKER), encoding="utf-8") as handle:
+        with open(marker, encoding="utf-8") as handle:
             written = json.load(handle).get("written")
     except (OSError, ValueError, AttributeError):
         return None

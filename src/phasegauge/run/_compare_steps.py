@@ -18,7 +18,7 @@ from dataclasses import dataclass
 import numpy as np
 
 from ..analysis import compare as cmp
-from ..errors import OptionError, PhasegaugeError, PhasegaugeWarning
+from ..errors import InputError, OptionError, PhasegaugeError, PhasegaugeWarning
 from ..model.axes import AXIS_NAMES
 from .measure import MeasureOptions
 from .options import accept_old_names
@@ -144,7 +144,6 @@ def _space_problem(mesh_a, mesh_b, path_a: str, path_b: str, flat=(False, False)
     or plane (:func:`phasegauge.analysis._resample.check_same_space`), else None; ``flat`` says which
     was a 3D mesh one cell thick, read as 2D."""
     from ..analysis._resample import check_same_space
-    from ..errors import InputError
 
     try:
         check_same_space(mesh_a, mesh_b)

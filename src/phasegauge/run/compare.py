@@ -292,15 +292,14 @@ def _chosen(spec: RunSpec, series, flag: str) -> list:
 def _near_misses(times_a, times_b, unpaired_a, unpaired_b) -> None:
     """Warn where unpaired steps of the two runs lie within 0.4 of an output interval of each other:
     outputs meant for the same times, written by a solver step longer than the default tolerance."""
-    from ..analysis.compare import PAIR_SHARE
+    from ..analysis.compare import PAIR_SHARE, _median_interval
 
     if not len(unpaired_a) or not len(unpaired_b):
         return
     a, b = times_a[list(unpaired_a)].to_numpy(), np.sort(times_b[list(unpaired_b)].to_numpy())
-    steps = [np.diff(np.sort(t.to_numpy())) for t in (times_a, times_b)]
-    if not all(np.any(d > 0) for d in steps):
+    intervals = [_median_interval(t.to_numpy()) for t in (times_a, times_b)]  # as the pairing takes them
+    if not all(np.isfinite(intervals)):
         return
-    intervals = [float(np.median(d[d > 0])) for d in steps]
     interval = min(intervals)
     if abs(intervals[0] - intervals[1]) > 0.05 * interval:
         return  # other output intervals: their times differ by design, not by a solver step
@@ -320,19 +319,15 @@ def _one_time_axis(both, chosen) -> None:
     stores its times: paired by time they would compare unrelated moments. A run's first chosen file is
     read whole first (not an XDMF file's): a time it stores beyond its head is found when it is read."""
     from ..errors import SeriesError
-    from ..io._formats import read_mesh_file, time_from_field_data
+    from ..io._formats import stores_time
 
     numbered = [all(s.steps[i].time_origin == "index" for i in c) for s, c in zip(both, chosen)]
     if numbered[0] == numbered[1]:
         return
     k = numbered.index(True)
     step = both[k].steps[chosen[k][0]]
-    if not step.path.lower().endswith((".xdmf", ".xmf")):
-        try:
-            if time_from_field_data(read_mesh_file(step.path).field_data) is not None:
-                return
-        except PhasegaugeError:  # named when the step is measured
-            return
+    if not step.path.lower().endswith((".xdmf", ".xmf")) and stores_time(step.path) is not False:
+        return  # a time beyond the head, or a file named when its step is measured
     which, flag = ("first", "a") if k == 0 else ("second", "b")
     raise SeriesError(f"the {which} run's files store no times, so its steps are numbered 0, 1, 2 ..., while the "
                       "other run's times are stored: paired by time they would compare unrelated moments",
