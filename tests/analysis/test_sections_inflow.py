@@ -81,6 +81,22 @@ def test_no_net_flow_falls_back_to_area_weights_with_one_warning():
     assert np.isfinite(mixing_length(table, reference="section", weighting="flow", target=0.1))
 
 
+def test_a_closed_box_has_no_inflow_to_refuse():
+    # the whole-change read: in a closed box (a Taylor-Green cell, u.n = 0 on the walls, analytic) every
+    # section's net flow is round-off (1e-17), and the flow check compared those, refusing the inflow
+    # with "does not cut the whole inflow"; the sections without net flow take area weights, as before
+    m = grid_mesh((16, 16))
+    x, y = m.points[:, 0], m.points[:, 1]
+    u = np.stack([np.sin(np.pi * x) * np.cos(np.pi * y), -np.cos(np.pi * x) * np.sin(np.pi * y), 0 * x], axis=1)
+    c = (np.hypot(x - 0.2, y - 0.5) < 0.2).astype(float)  # a drop the first section (x = 0.125) cuts
+    with warnings.catch_warnings(record=True) as caught:
+        warnings.simplefilter("always")
+        table = cross_sections(m, c, count=4, velocity=u, c_location="point")
+    assert not [w for w in caught if "carries a net flow" in str(w.message) or "of one phase" in str(w.message)]
+    assert (table["weighting"] == "area").all()
+    assert table["inflow_mean"].iloc[0] == pytest.approx(table["mean_area_weighted"].iloc[0], rel=1e-12)
+
+
 def test_sections_with_no_net_flow_do_not_abort_a_run(tmp_path):
     # regression: --sections y --velocity velocity on a closed box aborted the whole run
     from phasegauge import measure

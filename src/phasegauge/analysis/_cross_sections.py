@@ -95,10 +95,13 @@ def _area_weighted_notes(table: pd.DataFrame, global_axis: int) -> list:
 
 def _partial_inflow(table: pd.DataFrame, first: int, where: str) -> str | None:
     """Why the first section's net flow cannot be the whole inflow, or None: it differs by more than
-    :data:`FLOW_MISMATCH` from the median of the other sections' flows."""
+    :data:`FLOW_MISMATCH` from the median of the other sections' flows. Sections with no net flow
+    (a closed box: flows of round-off) are left out; a first one with none has no inflow to judge."""
     flow = table["flow_rate"].to_numpy()
-    others = np.flatnonzero(np.isfinite(flow) & (np.arange(flow.size) != first))
-    if others.size == 0 or not np.isfinite(flow[first]):
+    # a back-flow share of about a half is no net flow (|net| = (1 - 2 share) of the gross flow)
+    flowing = np.isfinite(flow) & ~(table["backflow_fraction"].to_numpy() >= 0.5 * (1.0 - NO_FLOW_TOLERANCE))
+    others = np.flatnonzero(flowing & (np.arange(flow.size) != first))
+    if others.size == 0 or not flowing[first]:
         return None
     median = float(np.median(flow[others]))
     if abs(flow[first] - median) <= FLOW_MISMATCH * abs(median):
