@@ -66,7 +66,10 @@ def _labels(seen):
 
 
 def test_measure_figures_have_both_labels_and_units(tmp_path, saved_axes):
-    measure(_discs(tmp_path, "a", "quad", steps=4), "alpha", out=tmp_path / "m", section_axis="x", section_count=4,
+    _discs(tmp_path, "a", "quad", steps=4)
+    # the steps' times in a listing (the files store none): a measured value with a time needs them
+    (tmp_path / "a.steps").write_text("".join(f"{0.1 * k},a_{k}.vtu\n" for k in range(4)))
+    measure(str(tmp_path / "a.steps"), "alpha", out=tmp_path / "m", section_axis="x", section_count=4,
             probes=(("mid", 0.5, 0.5, 0.0),), lines=(("across", 0.0, 0.5, 0.0, 1.0, 0.5, 0.0, 9),),
             measured=((0.5, 0.5, 0.0, 0.5, float("nan"), 0.1), (0.3, 0.5, 0.0, 1.0, 0.15, float("nan"))))
     assert len(saved_axes) >= 5

@@ -88,3 +88,57 @@ def test_expected_shift_takes_the_meshs_dimension(tmp_path, dimension):
     sigma = 2 * np.sqrt(2) / 3 * np.sqrt(kappa * beta)
     mu = (sigma / radius if dimension == 2 else 2 * sigma / radius) / 2  # over the gap rich - lean = 2
     assert note.figures["expected_shift"] == pytest.approx(mu / (2 * beta) / 2, rel=1e-12)
+
+
+def _shifted(low, high):
+    import pandas as pd
+
+    return pd.DataFrame({"step": [0], "time": [0.0], "bulk_c_low": [low], "bulk_c_high": [high],
+                         "c_min": [min(low - 1e-4, 0.0)], "c_max": [max(high, 1.0) + 1e-4],
+                         "overshoot_volume": [1e-3], "domain_volume": [1.0]})
+
+
+@pytest.mark.parametrize("kind, found", [("sharp", "indicator_overshoot"), ("diffuse", "bulk_plateaus"),
+                                         ("unknown", "bulk_plateaus")])
+def test_a_sharp_interface_has_no_gibbs_thomson_shift(kind, found):
+    """Audit 13: a volume-of-fluid run whose carrier sits at c = -2e-3 was told its bulk was 'physics, not
+    overshoot'. Volume fractions have no Gibbs-Thomson shift (it comes from the gradient energy of a
+    diffuse interface, Cahn & Hilliard 1958), so a run declared or read sharp gets the overshoot warning."""
+    from phasegauge.run.assemble import findings
+    from phasegauge.run.options import MeasureOptions
+
+    import pandas as pd
+
+    kinds = [f.kind for f in findings(_shifted(-2e-3, 1.0), pd.DataFrame(), {"interface_kind": kind},
+                                      MeasureOptions(field="alpha"), [], dimension=2)]
+    assert found in kinds and {"indicator_overshoot", "bulk_plateaus"} - {found} - set(kinds)
+
+
+def test_bulks_moved_opposite_ways_are_overshoot():
+    """The Gibbs-Thomson shift raises (or lowers) both coexisting bulk values alike (Cahn & Hilliard 1958,
+    linearised: each moves by mu / f''), so bulks spread outwards on both sides are not that shift."""
+    from phasegauge.run.assemble import findings
+    from phasegauge.run.options import MeasureOptions
+
+    import pandas as pd
+
+    options, none = MeasureOptions(field="phi"), pd.DataFrame()
+    assert "indicator_overshoot" in [f.kind for f in findings(_shifted(-0.01, 1.01), none, {}, options, [])]
+    assert "bulk_plateaus" in [f.kind for f in findings(_shifted(0.01, 1.01), none, {}, options, [])]
+
+
+@pytest.mark.parametrize("low, found", [(-0.049, "indicator_overshoot"), (0.049, "indicator_overshoot"),
+                                        (0.006, "bulk_plateaus")])
+def test_a_shift_the_model_does_not_give_is_overshoot(tmp_path, low, found):
+    """Audit 13: a matrix at c = -0.049 was called the Gibbs-Thomson shift while the model's shift for the
+    drop was +0.0046 (the other sign, a tenth of the size). The linearised shift of the double well
+    (Cahn & Hilliard 1958) is the reference; up to SHIFT_FACTOR (3, our threshold) times it passes."""
+    from phasegauge.run.assemble import findings
+    from phasegauge.run.options import MeasureOptions
+
+    model = tmp_path / "well.toml"
+    model.write_text('[model]\nkind = "double-well"\nlean = -1.0\nrich = 1.0\nheight = 0.25\nkappa = 2e-4\n')
+    options = MeasureOptions(field="phi", range=(-1, 1), free_energy=str(model))
+    _, droplets = _tables(0.2, 2)  # expected shift in c: 0.0083 [the formula of the test above]
+    kinds = [f.kind for f in findings(_shifted(low, 1.0), droplets, {}, options, [], dimension=2)]
+    assert found in kinds

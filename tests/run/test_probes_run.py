@@ -140,7 +140,8 @@ def test_file_and_option_errors(tmp_path):
         read_measured_file(_write(tmp_path / "c.csv", "x,y,value,uncertainty\n0,0,1,-1\n"))
     with pytest.raises(OptionError, match="finite"):
         MeasureOptions(field="f", probes=(("a", float("nan"), 0.0),))
-    assert read_probe_file(_write(tmp_path / "d.csv", "name, x, y\n# a comment\nq,1,2\n")) == (("q", 1.0, 2.0, 0.0),)
+    (probe,) = read_probe_file(_write(tmp_path / "d.csv", "name, x, y\n# a comment\nq,1,2\n"))
+    assert probe[:3] == ("q", 1.0, 2.0) and np.isnan(probe[3])  # z not given (a mesh in the x-y plane takes 0)
 
 
 def test_recipe_validation_table(tmp_path):

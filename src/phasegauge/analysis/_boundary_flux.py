@@ -56,6 +56,26 @@ def _face_vectors(mesh: Mesh) -> tuple:
     return pieces, owners, unit, measure, face
 
 
+def _on_periodic_planes(mesh: Mesh, centre: np.ndarray, periodic: tuple) -> np.ndarray:
+    """Which boundary pieces (their centres ``centre``, in the mesh's coordinates) lie on the lowest or
+    highest plane of the boundary along a ``periodic`` axis (to 1e-9 of its largest extent, as
+    :func:`._boundary_reach._boundary_tree` leaves them out)."""
+    from ..model.axes import AXIS_INDEX
+
+    on = np.zeros(centre.shape[0], dtype=bool)
+    if not periodic or not centre.shape[0]:
+        return on
+    axes = list(mesh.plane_axes) if mesh.dimension == 2 else [0, 1, 2]
+    lo, hi = centre.min(axis=0), centre.max(axis=0)
+    tolerance = 1e-9 * float(np.max(hi - lo))
+    for name in periodic:
+        if AXIS_INDEX[name] not in axes:
+            continue
+        column = axes.index(AXIS_INDEX[name])
+        on |= (np.abs(centre[:, column] - lo[column]) <= tolerance) | (np.abs(centre[:, column] - hi[column]) <= tolerance)
+    return on
+
+
 def _cycle_quads(X: np.ndarray, quad: np.ndarray) -> np.ndarray:
     """Order the four corners of each quad face around its centre."""
     if quad.size == 0:
@@ -153,7 +173,8 @@ def _open_cell_faces(mesh, u, owners, unit, centre, threshold) -> tuple[np.ndarr
 
 
 def open_boundary_flux(mesh: Mesh, velocity, c=None, *, tolerance: float = OPEN_TOLERANCE,
-                       velocity_location: str | None = None, c_location: str | None = None) -> dict:
+                       velocity_location: str | None = None, c_location: str | None = None,
+                       periodic: tuple = ()) -> dict:
     """Flow and phase flux through the domain boundary.
 
     Parameters
@@ -169,6 +190,10 @@ def open_boundary_flux(mesh: Mesh, velocity, c=None, *, tolerance: float = OPEN_
     velocity_location, c_location : {'point', 'cell'}, optional
         Where an array lives; needed only when the mesh has as many points
         as cells.
+    periodic : tuple of {'x', 'y', 'z'}
+        Axes along which the domain is periodic: the boundary faces on its
+        lowest and highest planes along them are no boundary (what leaves
+        through one comes back through the other) and are never open.
 
     Returns
     -------
@@ -237,6 +262,7 @@ def open_boundary_flux(mesh: Mesh, velocity, c=None, *, tolerance: float = OPEN_
         un = np.repeat(un_cell[:, None], k, axis=1)
     if speed <= 0:
         is_open[:] = False
+    is_open &= ~_on_periodic_planes(mesh, centre, periodic)
     # a face is open as a whole: any of its pieces open opens the face
     face_open = np.zeros(int(face.max(initial=-1)) + 1, dtype=bool)
     np.logical_or.at(face_open, face, is_open)

@@ -126,7 +126,8 @@ def line_points(start, end, count: int) -> tuple[np.ndarray, np.ndarray]:
     a[:len(start)] = start
     b[:len(end)] = end
     s = np.linspace(0.0, 1.0, count)
-    return a + s[:, None] * (b - a), s * float(np.linalg.norm(b - a))
+    # a coordinate not given at both ends (NaN: a 2D file's z) adds nothing to the distance
+    return a + s[:, None] * (b - a), s * float(np.linalg.norm(np.nan_to_num(b - a)))
 
 
 def _reach(mesh: Mesh) -> float:

@@ -1,7 +1,8 @@
 """Reading the plain CSV files that name probe points, sample lines and measured values.
 
 Each file has a header line naming its columns; ``#`` starts a comment; a 2D
-file leaves out the z columns (z = 0). The files are the project's own plain
+file leaves out the z columns (z is then NaN, "not given": a 2D mesh in the x-y plane
+takes z = 0, any other mesh refuses the file). The files are the project's own plain
 formats (see the README): ``name,x,y[,z]`` (probes),
 ``name,x0,y0[,z0],x1,y1[,z1],points`` (lines) and
 ``x,y[,z],value[,time][,uncertainty]`` (measured values).
@@ -89,7 +90,7 @@ def read_probe_file(path) -> tuple:
     Returns
     -------
     tuple of (name, x, y, z)
-        One entry per probe, z = 0 when the file has no z column.
+        One entry per probe, z NaN when the file has no z column (not given).
 
     Raises
     ------
@@ -100,7 +101,7 @@ def read_probe_file(path) -> tuple:
     table, path = _read(path, "probe", example)
     _columns(table, path, "probe", ("name", "x", "y"), ("z",), example)
     xyz = _numbers(table, ("x", "y", "z"), path, "probe")
-    z = xyz.get("z", np.zeros(len(table)))
+    z = xyz.get("z", np.full(len(table), np.nan))  # not given: a 2D mesh in the x-y plane takes 0
     names = _names(table, path, "probe")
     return tuple((str(n), float(a), float(b), float(c)) for n, a, b, c in zip(names, xyz["x"], xyz["y"], z))
 
@@ -111,6 +112,7 @@ def read_line_file(path) -> tuple:
     Returns
     -------
     tuple of (name, x0, y0, z0, x1, y1, z1, points)
+        z0 and z1 NaN when the file has no such column (not given).
 
     Raises
     ------
@@ -121,7 +123,7 @@ def read_line_file(path) -> tuple:
     table, path = _read(path, "line", example)
     _columns(table, path, "line", ("name", "x0", "y0", "x1", "y1", "points"), ("z0", "z1"), example)
     v = _numbers(table, ("x0", "y0", "z0", "x1", "y1", "z1", "points"), path, "line")
-    zero = np.zeros(len(table))
+    zero = np.full(len(table), np.nan)  # not given
     points = v["points"]
     if (points < 2).any() or (points != np.round(points)).any():
         raise InputError("every line needs a whole number of at least 2 points", where=path,
@@ -137,7 +139,7 @@ def read_measured_file(path) -> tuple:
     Returns
     -------
     tuple of (x, y, z, value, time, uncertainty)
-        z = 0 without a z column; time NaN when the file gives none (the value
+        z NaN without a z column (not given); time NaN when the file gives none (the value
         then stands for every step); uncertainty NaN when not given.
 
     Raises
@@ -154,6 +156,6 @@ def read_measured_file(path) -> tuple:
     unc = v.get("uncertainty", nan)
     if (unc < 0).any():
         raise InputError("an uncertainty is negative", where=path, fix="give the half-width of the interval (>= 0)")
-    z = v.get("z", np.zeros(len(table)))
+    z = v.get("z", nan)
     return tuple((float(a), float(b), float(c), float(d), float(t), float(u)) for a, b, c, d, t, u
                  in zip(v["x"], v["y"], z, v["value"], v.get("time", nan), unc))

@@ -57,13 +57,16 @@ def named_field(fields, name: str, *, where: str = "", role: str = "field", fix:
 
 
 def vector_field(fields, name: str, *, where: str = "", role: str = "velocity field",
-                 fix: str = "") -> tuple[np.ndarray, str]:
+                 fix: str = "", plane_axes=(0, 1)) -> tuple[np.ndarray, str]:
     """A step's vector field by name, with three components, and where it lives (cell data first).
+
+    ``plane_axes``: the axes two-component vectors lie along (a 2D mesh's plane: a solver writing a
+    case in the x-z plane writes (u_x, u_z)); default x and y.
 
     Returns
     -------
     values : ndarray of shape (n, 3), float64
-        Two-component vectors get a zero third component.
+        Two-component vectors placed on ``plane_axes``, zero along the third axis.
     location : {'point', 'cell'}
 
     Raises
@@ -79,7 +82,9 @@ def vector_field(fields, name: str, *, where: str = "", role: str = "velocity fi
         raise FieldShapeError(f"{role} '{name}' must have 2 or 3 components, found shape {values.shape}",
                               where=where, fix="name a vector field")
     if values.shape[1] == 2:
-        values = np.hstack([values, np.zeros((values.shape[0], 1))])
+        placed = np.zeros((values.shape[0], 3))
+        placed[:, list(plane_axes)] = values
+        values = placed
     return values, location
 
 

@@ -47,14 +47,27 @@ def _unique_names(names, what):
         seen.add(n)
 
 
+def _z_or_nan(value, what):
+    """A z coordinate: a finite number, or NaN for "not given" (a 2D file's; see :func:`resolve_z`)."""
+    try:
+        z = float(value)
+    except (TypeError, ValueError):
+        raise OptionError(f"{what} must be numbers, found {value!r}", fix="check the file or option") from None
+    if math.isinf(z):
+        raise OptionError(f"{what} must be finite numbers, found {z}", fix="check the file or option")
+    return z
+
+
 def normalize_probes(probes) -> tuple:
-    """Probes as a tuple of (name, x, y, z); (name, x, y) entries get z = 0."""
+    """Probes as a tuple of (name, x, y, z); (name, x, y) entries get z NaN (not given)."""
     out = []
     for entry in probes or ():
         entry = tuple(entry)
         if len(entry) not in (3, 4):
             raise OptionError(f"a probe is (name, x, y[, z]), found {entry!r}", fix="see read_probe_file")
-        x, y, z = (_finite(entry[1:], f"probe '{entry[0]}' coordinates") + (0.0,))[:3]
+        what = f"probe '{entry[0]}' coordinates"
+        x, y = _finite(entry[1:3], what)
+        z = _z_or_nan(entry[3], what) if len(entry) == 4 else math.nan
         out.append((str(entry[0]), x, y, z))
     _unique_names([p[0] for p in out], "probe")
     return tuple(out)
@@ -69,9 +82,13 @@ def normalize_lines(lines) -> tuple:
         if len(entry) not in (6, 8):
             raise OptionError(f"a line is (name, x0, y0[, z0], x1, y1[, z1], points), found {entry!r}",
                               fix="see read_line_file")
-        coords = _finite(entry[1:-1], f"line '{entry[0]}' ends")
-        if len(coords) == 4:
-            coords = (coords[0], coords[1], 0.0, coords[2], coords[3], 0.0)
+        what = f"line '{entry[0]}' ends"
+        if len(entry) == 6:
+            x0, y0, x1, y1 = _finite(entry[1:-1], what)
+            coords = (x0, y0, math.nan, x1, y1, math.nan)
+        else:
+            x0, y0, x1, y1 = _finite(entry[1:3] + entry[4:6], what)
+            coords = (x0, y0, _z_or_nan(entry[3], what), x1, y1, _z_or_nan(entry[6], what))
         points = entry[-1]
         if isinstance(points, bool) or int(points) != points or int(points) < 2:
             raise OptionError(f"line '{entry[0]}' needs a whole number of at least 2 points, found {points!r}",
@@ -92,7 +109,7 @@ def normalize_measured(measured) -> tuple:
         if len(entry) != 6:
             raise OptionError(f"a measured value is (x, y, z, value, time, uncertainty), found {entry!r}",
                               fix="read the file with read_measured_file")
-        if not all(math.isfinite(v) for v in entry[:4]) or (entry[5] < 0):
+        if not all(math.isfinite(v) for v in entry[:2] + entry[3:4]) or math.isinf(entry[2]) or (entry[5] < 0):
             raise OptionError(f"measured position and value must be finite and the uncertainty >= 0, found {entry}",
                               fix="check the measured file")
         out.append(entry)
@@ -148,7 +165,7 @@ def sample_step(mesh, indicator, options, *, where: str = ""):
     if not (options.probes or options.lines or options.measured):
         return None
     points, parts = sample_layout(options)
-    sampler = point_sampler(mesh, points)
+    sampler = point_sampler(mesh, resolve_z(mesh, points, options, parts))
     c = sampler(indicator.point)
     lo, hi = options.range
     value = lo + (hi - lo) * (c if options.phase == "upper" else 1.0 - c)
@@ -156,6 +173,27 @@ def sample_step(mesh, indicator, options, *, where: str = ""):
         warnings.warn(MeshWarning(f"points outside the mesh (their values are empty): "
                                   f"{_outside_names(sampler.inside, options, parts)}", where=where), stacklevel=2)
     return np.column_stack([value, c])
+
+
+def resolve_z(mesh, points, options, parts) -> np.ndarray:
+    """``points`` with z not given (NaN, a file without z columns) made 0 where the mesh ignores it (a 2D
+    mesh in the x-y plane, z its normal); on any other mesh such points are refused: two columns would be
+    read as x and y where the mesh's plane is x-z or y-z, or sit on z = 0 in a 3D mesh."""
+    missing = np.isnan(points[:, 2])
+    if not missing.any():
+        return points
+    if mesh.dimension == 2 and 2 not in tuple(mesh.plane_axes):
+        points = points.copy()
+        points[missing, 2] = 0.0
+        return points
+    names = [options.probes[i][0] for i in np.flatnonzero(missing[parts["probes"]])]
+    names += [f"line {name}" for name, sl, _ in parts["lines"] if missing[sl].any()]
+    if missing[parts["measured"]].any():
+        names.append("measured values")
+    plane = "the " + "-".join("xyz"[a] for a in mesh.plane_axes) + " plane" if mesh.dimension == 2 else "3D"
+    raise OptionError(f"{', '.join(names[:6])}{' and more' if len(names) > 6 else ''} give no z, but the mesh lies "
+                      f"in {plane}: only a mesh in the x-y plane takes a file without z columns (as z = 0)",
+                      fix="give the probe, line and measured files x, y and z columns (z0 and z1 for lines)")
 
 
 def _outside_names(inside, options, parts) -> str:
@@ -196,7 +234,7 @@ def sample_tables(results, options) -> tuple:
         frame = {"step": np.repeat(steps, n), "time": np.repeat(times, n), label_column: np.tile(labels, len(done))}
         if extra is not None:
             frame.update(extra)
-        P = np.tile(points[sl], (len(done), 1))
+        P = np.nan_to_num(np.tile(points[sl], (len(done), 1)), nan=0.0)  # z not given: 0 (an x-y mesh's)
         frame.update({"x": P[:, 0], "y": P[:, 1], "z": P[:, 2], "value": values[:, sl, 0].ravel(),
                       "c": values[:, sl, 1].ravel()})
         return pd.DataFrame(frame)

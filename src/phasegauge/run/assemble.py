@@ -20,8 +20,8 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
-from ..errors import (AnalysisError, InputError, PhasegaugeError, SeriesError, SeriesWarning, SkippedStepWarning,
-                      collapse_warnings)
+from ..errors import (AnalysisError, InputError, PhasegaugeError, PhasegaugeWarning, SeriesError, SeriesWarning,
+                      SkippedStepWarning, collapse_warnings)
 from ._boundary_findings import boundary_reach_finding, resolution_finding
 from ._drift_findings import drift_findings
 from .options import STEP_COLUMNS
@@ -318,6 +318,8 @@ def assemble(series, results: list, options, *, notes=(), feed: TrackingFeed | N
                 if r.error is not None else (SkippedStepWarning, f"step skipped: {r.skipped}", "")
                 for r in results if r.skipped is not None]
     records += [rec for r in done for rec in r.warning_records]
+    probes, lines, validation, validation_summary, sample_notes = _sample_tables(done, options)
+    records += sample_notes
     summary = collapse_warnings(records)
     for category, text in summary:
         warnings.warn(category(text), stacklevel=2)
@@ -358,7 +360,6 @@ def assemble(series, results: list, options, *, notes=(), feed: TrackingFeed | N
     if any(r.contour is not None for r in done):
         last = done[-1]
         mesh = (mesh_pool.find(last.mesh_signature) if mesh_pool is not None else None) or last.outline
-    probes, lines, validation, validation_summary = _sample_tables(done, options)
     from ._mixture import mixture_report_arrays
 
     return MeasureResult(steps=steps, droplets=droplets, events=events, profiles=profiles, audit=audit,
@@ -369,17 +370,36 @@ def assemble(series, results: list, options, *, notes=(), feed: TrackingFeed | N
 
 
 def _sample_tables(done, options):
-    """probes.csv, lines.csv, validation.csv and its summary (None where the run has none)."""
+    """probes.csv, lines.csv, validation.csv and its summary (None where the run has none), and warning
+    records: measured times outside the steps' times (their rows empty: other units?), and measured times
+    left out against steps numbered by their index (measure refuses those before reading; a guard)."""
     from ._sampling import sample_tables
 
     probes, lines, measured = sample_tables(done, options)
     if measured is None:
-        return probes, lines, None, None
+        return probes, lines, None, None, []
     from ..analysis.probes import validation_summary, validation_table
 
     times, simulated, steps = measured
-    table = validation_table(options.measured, times, simulated, steps=steps)
-    return probes, lines, table, validation_summary(table)
+    rows = tuple((x, y, 0.0 if np.isnan(z) else z, *rest) for x, y, z, *rest in options.measured)  # z not given: 0
+    notes = []
+    timed = np.array([np.isfinite(entry[4]) for entry in rows])
+    if timed.any() and any(getattr(r, "time_origin", "") == "index" for r in done):
+        rows = tuple(entry for entry, t in zip(rows, timed) if not t)
+        simulated = simulated[:, ~timed]
+        notes.append((PhasegaugeWarning, f"{int(timed.sum())} measured value(s) with times left out: the steps store "
+                      "no times (numbered 0, 1, 2 ...); give a 'time,path' listing of the steps", ""))
+    elif timed.any():
+        t = np.array([entry[4] for entry in rows])[timed]
+        scale = 1e-12 * max(1.0, float(np.abs(times).max()))
+        outside = (t < times.min() - scale) | (t > times.max() + scale)
+        if outside.any():
+            notes.append((PhasegaugeWarning, f"{int(outside.sum())} of {t.size} measured value(s) with times lie "
+                          f"outside the steps' times ({times.min():.6g} to {times.max():.6g}; measured "
+                          f"{t[outside].min():.6g} to {t[outside].max():.6g}): their simulated values are empty "
+                          "(times in other units, or steps left out?)", ""))
+    table = validation_table(rows, times, simulated, steps=steps)
+    return probes, lines, table, validation_summary(table), notes
 
 
 #: overshoot and drift below this share of the domain volume are round-off (c carried in float64
@@ -430,7 +450,7 @@ def findings(steps, droplets, audit: dict, options, skipped: list, *, dimension:
     if "overshoot_volume" in steps:
         worst = _worst(steps, "overshoot_volume")
         tolerance = ROUNDOFF_VOLUME * domain
-        plateaus = _bulk_plateaus(steps, droplets, options, dimension) if worst > tolerance else None
+        plateaus = _bulk_plateaus(steps, droplets, options, dimension, kind) if worst > tolerance else None
         if plateaus is not None:
             found.append(plateaus)
         elif worst > tolerance:
@@ -483,15 +503,23 @@ def findings(steps, droplets, audit: dict, options, skipped: list, *, dimension:
     return found
 
 
-def _bulk_plateaus(steps, droplets=None, options=None, dimension=None):
+#: a bulk shift is taken for the free energy's Gibbs-Thomson shift up to this many times it (the largest
+#: drop's shift is the smallest; smaller drops shift the bulk more): our threshold
+SHIFT_FACTOR = 3.0
+
+
+def _bulk_plateaus(steps, droplets=None, options=None, dimension=None, kind="unknown"):
     """A note on bulk plateaus off 0 and 1 that account for c leaving [0, 1], or None.
 
     A diffuse-interface (Cahn-Hilliard) bulk sits off the wells by the Gibbs-Thomson shift of
     its curved interfaces; c beyond [0, 1] is then physics as long as it stays within the
     plateaus' range widened by the shift itself (twice the shift from the well, at least 1e-3).
-    Values further out are overshoot (None: the caller warns).
+    Values further out are overshoot (None: the caller warns). So is a bulk off its well where the
+    shift cannot be Gibbs-Thomson's: a sharp interface (volume-of-fluid fractions have none), the two
+    bulks moved opposite ways (the shift moves both alike), or, with a double-well free energy, a shift
+    of the other sign than the model's or more than :data:`SHIFT_FACTOR` times it.
     """
-    if "bulk_c_low" not in steps or "c_min" not in steps or not len(steps):
+    if kind == "sharp" or "bulk_c_low" not in steps or "c_min" not in steps or not len(steps):
         return None
     lows, highs = steps["bulk_c_low"].to_numpy(float), steps["bulk_c_high"].to_numpy(float)
     if not (np.isfinite(lows).any() and np.isfinite(highs).any()):
@@ -503,10 +531,15 @@ def _bulk_plateaus(steps, droplets=None, options=None, dimension=None):
     floor, ceiling = min(0.0, low - max(-low, 1e-3)), max(1.0, high + max(high - 1.0, 1e-3))
     if c_min < floor or c_max > ceiling:
         return None
+    shifts = [s for s in (low, high - 1.0) if s != 0.0]
+    if len(shifts) == 2 and shifts[0] * shifts[1] < 0:
+        return None  # spread outwards on both sides: not one shift of both bulks
     figures = {"bulk_c_low": low, "bulk_c_high": high, "c_min": c_min, "c_max": c_max,
                "shift_low": low, "shift_high": high - 1.0}
     expected = _expected_shift(droplets, options, dimension)
     words = ""
+    if expected is not None and not all(s * expected > 0 and abs(s) <= SHIFT_FACTOR * abs(expected) for s in shifts):
+        return None  # not the model's shift: overshoot
     if expected is not None:
         figures["expected_shift"] = expected
         words = f" (the free energy's Gibbs-Thomson shift for the largest drop at the last step: {expected:+.2g})"

@@ -210,6 +210,7 @@ def measure(path, field: str | None = None, *, options: MeasureOptions | None = 
         problem = series.time_problem(indices)
         if problem is not None:
             raise problem
+        _check_measured_times(series, indices, options)
         check_output_place(series, out)
         from ..report._files import output_transaction
 
@@ -415,6 +416,25 @@ def _reading(series, results) -> list:
     if left_out:
         lines.append(f"multiblock blocks left out: {left_out}")
     return lines
+
+
+def _check_measured_times(series, indices, options) -> None:
+    """Refuse measured values with times against steps numbered 0, 1, 2 ... (files that store no time):
+    the measured times would be read as step numbers. The first chosen file is read whole first (not an
+    XDMF file's): a time it stores beyond its head is found when it is read."""
+    from ..io._formats import stores_time
+
+    if not any(np.isfinite(entry[4]) for entry in options.measured):
+        return
+    if not all(series.steps[i].time_origin == "index" for i in indices):
+        return
+    step = series.steps[indices[0]]
+    if not step.path.lower().endswith((".xdmf", ".xmf")) and stores_time(step.path) is not False:
+        return
+    raise SeriesError("the measured values have times, but the steps' files store none, so the steps are numbered "
+                      "0, 1, 2 ...: the measured times would be read as step numbers", where=series.path,
+                      fix="give a 'time,path' listing of the steps as the path (recipe: path), or leave the time "
+                          "column out of the measured file")
 
 
 def _check_read_times(results, options) -> None:

@@ -137,9 +137,11 @@ def step_velocity(step, options):
     """
     if options.velocity is None:
         return None, None, None
-    values, location = vector_field(step.fields, options.velocity, where=step.info.where,
-                                    fix="name the velocity field with --velocity, or leave it out")
     mesh = step.mesh
+    # two components lie in a 2D mesh's plane (u_x, u_z for a case in the x-z plane)
+    values, location = vector_field(step.fields, options.velocity, where=step.info.where,
+                                    fix="name the velocity field with --velocity, or leave it out",
+                                    plane_axes=tuple(mesh.plane_axes) if mesh.dimension == 2 else (0, 1))
     if location == "cell":
         return values, None, location
     return (mesh.point_to_cell(values) if "droplets" in options.analyses else None), values, location
@@ -301,7 +303,8 @@ def _phase_analyses(step, mesh, ind, options, result, m: dict, velocity: tuple, 
             # the boundary flux takes the velocity where the file has it: a cell-centred solver's
             # own cell values on its boundary faces, never values averaged onto wall points
             flux = conservation.open_boundary_flux(
-                mesh, u_cell if u_location == "cell" else u_point, ind, velocity_location=u_location)
+                mesh, u_cell if u_location == "cell" else u_point, ind, velocity_location=u_location,
+                periodic=tuple(options.periodic))
             m.update({k: v for k, v in flux.items() if k != "open_boundary"})
             m["open_boundary"] = bool(flux["open_boundary"])
     contour = measured = plateaus = prepared = None

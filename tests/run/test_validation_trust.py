@@ -1,0 +1,98 @@
+"""Measured values, probes and lines where a solver's output could mislead them (audit 12)."""
+
+import warnings
+
+import numpy as np
+import pytest
+from conftest import write_listing
+
+from phasegauge import measure
+from phasegauge.errors import SeriesError
+from phasegauge.meshgen import grid_mesh, to_meshio
+from phasegauge.run.options import MeasureOptions
+
+
+def _field(x, y, t):
+    return 0.1 + 0.3 * x + 0.2 * y + 0.5 * t  # linear in space and time [analytic reference]
+
+
+def _untimed_files(folder, times=(0.0, 0.1, 0.2, 0.3)):
+    # a solver's files that store no time: the steps are numbered 0, 1, 2 ...
+    folder.mkdir()
+    mesh = grid_mesh((8, 8))
+    for k, t in enumerate(times):
+        to_meshio(mesh, point_data={"f": _field(mesh.points[:, 0], mesh.points[:, 1], t)}).write(folder / f"s_{k}.vtu")
+    return folder
+
+
+def test_measured_times_against_numbered_steps_are_refused_before_measuring(tmp_path):
+    # the measured values are the exact field at t = 0.05 ... 0.3 s; against steps numbered 0, 1, 2, 3
+    # they were compared at "t = 0.05 steps" and read 0 % within uncertainty, bias -0.07, with exit 0
+    folder = _untimed_files(tmp_path / "run")
+    measured = tuple((0.23, 0.37, 0.0, _field(0.23, 0.37, t), t, 0.01) for t in (0.05, 0.1, 0.3))
+    options = MeasureOptions(field="f", analyses=("conservation",), measured=measured)
+    with pytest.raises(SeriesError, match="measured values have times, but the steps' files store none") as err:
+        measure(folder, options=options)
+    assert "time,path" in err.value.fix
+    # without times the values stand for every step, as before
+    untimed = tuple(m[:4] + (np.nan, 0.01) for m in measured)
+    result = measure(folder, options=MeasureOptions(field="f", analyses=("conservation",), measured=untimed))
+    assert len(result.validation) == 3 * 4
+
+
+def test_measured_times_outside_the_steps_are_named(tmp_path):
+    # times written in ms against steps in s: every row empty, and before this no word of it
+    mesh = grid_mesh((8, 8))
+    x, y = mesh.points[:, 0], mesh.points[:, 1]
+    listing = write_listing(str(tmp_path), ((t, f"s_{k}.vtu", mesh, None, {"f": _field(x, y, t)})
+                                            for k, t in enumerate((0.0, 0.1, 0.2))))
+    measured = tuple((0.5, 0.5, 0.0, 0.5, t, 0.01) for t in (100.0, 200.0))
+    with warnings.catch_warnings(record=True) as caught:
+        warnings.simplefilter("always")
+        result = measure(listing, options=MeasureOptions(field="f", analyses=("conservation",), measured=measured))
+    texts = [str(w.message) for w in caught]
+    assert any("2 of 2 measured value(s) with times lie outside the steps' times (0 to 0.2" in t for t in texts), texts
+    assert result.validation["simulated"].isna().all()
+    assert any("outside the steps' times" in f.text for f in result.findings)
+
+
+def _plane_series(folder, plane):
+    # a 2D case written in the x-z (or y-z) plane, as solvers with gravity along z write it; the field
+    # 0.5 + 0.3 a + 0.4 b in the plane's own axes (a, b) [analytic]
+    mesh = grid_mesh((10, 10), bounds=((0.0, 1.0), (-0.5, 0.5)))
+    folder.mkdir()
+    a_axis, b_axis = {"xz": (0, 2), "yz": (1, 2), "xy": (0, 1)}[plane]
+    for k in range(2):
+        m = to_meshio(mesh, point_data={"f": 0.5 + 0.3 * mesh.points[:, 0] + 0.4 * mesh.points[:, 1]})
+        points = np.zeros((len(m.points), 3))
+        points[:, a_axis], points[:, b_axis] = m.points[:, 0], m.points[:, 1]
+        m.points = points
+        m.write(folder / f"p_{k}.vtu")
+    return folder
+
+
+def test_a_file_without_z_is_refused_on_a_mesh_in_the_xz_plane(tmp_path):
+    # audit 12: the probes' two columns were read as x and y, the y dropped as the plane's normal and
+    # every probe put on z = 0: 0.575 read for the 0.695 at (x, z) = (0.25, 0.3), with exit 0
+    from phasegauge.errors import OptionError
+
+    folder = _plane_series(tmp_path / "xz", "xz")
+    two = MeasureOptions(field="f", analyses=("conservation",), probes=(("a", 0.25, 0.3),))
+    with pytest.raises(OptionError, match="give no z, but the mesh lies in the x-z plane") as err:
+        measure(folder, options=two)
+    assert "x, y and z columns" in err.value.fix
+    three = MeasureOptions(field="f", analyses=("conservation",), probes=(("a", 0.25, 0.0, 0.3),),
+                           lines=(("l", 0.0, 0.0, 0.3, 1.0, 0.0, 0.3, 5),))
+    result = measure(folder, options=three)
+    assert result.probes["value"].to_numpy() == pytest.approx(0.5 + 0.3 * 0.25 + 0.4 * 0.3, abs=1e-12)
+    assert result.lines["distance"].max() == pytest.approx(1.0)
+
+
+def test_a_file_without_z_on_a_mesh_in_the_xy_plane_takes_z_0(tmp_path):
+    folder = _plane_series(tmp_path / "xy", "xy")
+    options = MeasureOptions(field="f", analyses=("conservation",), probes=(("a", 0.25, 0.3),),
+                             lines=(("l", 0.0, 0.3, 1.0, 0.3, 5),))
+    result = measure(folder, options=options)
+    assert result.probes["value"].to_numpy() == pytest.approx(0.5 + 0.3 * 0.25 + 0.4 * 0.3, abs=1e-12)
+    assert (result.probes["z"] == 0.0).all() and (result.lines["z"] == 0.0).all()
+    assert result.lines["distance"].max() == pytest.approx(1.0)
