@@ -13,7 +13,7 @@ import numpy as np
 import pytest
 import pyvista
 
-from phasegauge.errors import InputFileNotFound, SeriesError, SeriesWarning, UnreadableFileError
+from phasegauge.errors import InputFileNotFound, MeshWarning, SeriesError, SeriesWarning, UnreadableFileError
 from phasegauge.io import MESH_SUFFIXES, Series, natural_key
 from phasegauge.io.describe import describe_series, format_description
 from phasegauge.samples._vof_tank import TANK, write_vof_tank
@@ -195,3 +195,24 @@ def test_steps_sharing_a_file_name_are_named_by_their_folder_in_messages(tank):
     series = Series(str(tank / "tank_*" / "internal.vtu"))
     assert [s.where for s in series.steps] == [f"tank_{n}/internal.vtu, step {k}" for k, n in enumerate(STEPS)]
     assert Series(tank).steps[2].where == "tank_114.vtm, step 2"  # distinct names stay short
+
+
+def test_a_patch_written_as_an_unstructured_grid_is_left_out(tank, tmp_path):
+    # audit 12: a boundary patch block written as .vtu (faces only) was joined to the volume, and its
+    # points merged with the wall points, averaging the patch's value (a boundary condition's) into the
+    # volume's point values (a wall probe read 0.5025 for 0.105). Reference: pyvista's reading of the
+    # volume block alone.
+    patch = pyvista.read(tank / "tank_132" / "boundary" / "walls.vtp").cast_to_unstructured_grid()
+    patch.point_data["alpha"] = np.full(patch.n_points, 0.9)
+    patch.cell_data["alpha"] = np.full(patch.n_cells, 0.9)
+    patch.save(tmp_path / "walls.vtu")
+    text = (tank / "tank_132.vtm").read_text()
+    text = text.replace('file="tank_132/internal.vtu"', f'file="{tank}/tank_132/internal.vtu"')
+    text = text.replace('file="tank_132/boundary/walls.vtp"', f'file="{tmp_path}/walls.vtu"')
+    assert "walls.vtu" in text
+    (tmp_path / "patched.vtm").write_text(text)
+    with pytest.warns(MeshWarning, match="block walls holds only cells of lower dimension"):
+        step = Series(tmp_path / "patched.vtm").read(0)
+    volume = pyvista.read(tank / "tank_132" / "internal.vtu")
+    assert step.mesh.n_points == volume.n_points and step.mesh.n_cells == volume.n_cells
+    assert np.array_equal(step.fields.point_data["alpha"], np.asarray(volume.point_data["alpha"]))

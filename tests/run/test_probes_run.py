@@ -95,7 +95,7 @@ def test_measured_values_give_validation_tables(tmp_path):
     result = measure(listing, options=options, out=tmp_path / "out", contours=False)
     table = pd.read_csv(tmp_path / "out" / "validation.csv")
     assert list(table.columns) == ["step", "time", "x", "y", "z", "measured", "simulated", "difference", "uncertainty",
-                                   "within_uncertainty"]
+                                   "within_uncertainty", "every_step"]
     assert len(table) == 2 + len(TIMES)
     # t = 0.25 lies between steps 0 and 1: no step; the untimed value is compared at every step
     assert table["step"].isna().sum() == 2
@@ -112,7 +112,8 @@ def test_measured_values_give_validation_tables(tmp_path):
     # the untimed value was measured at t = 0; the field rises by 0.1 t, so the difference is 0.02 + 0.1 t
     assert untimed["difference"].to_numpy() == pytest.approx(0.02 + 0.1 * np.array(TIMES), abs=1e-12)
     overall = summary.iloc[-1]
-    assert overall["scope"] == "overall" and overall["points"] == 5
+    # each measured value once: the two timed ones and the untimed one at the last step
+    assert overall["scope"] == "overall" and overall["points"] == 3
     assert (tmp_path / "out" / "validation_overlay.png").exists()
 
 

@@ -96,3 +96,52 @@ def test_a_file_without_z_on_a_mesh_in_the_xy_plane_takes_z_0(tmp_path):
     assert result.probes["value"].to_numpy() == pytest.approx(0.5 + 0.3 * 0.25 + 0.4 * 0.3, abs=1e-12)
     assert (result.probes["z"] == 0.0).all() and (result.lines["z"] == 0.0).all()
     assert result.lines["distance"].max() == pytest.approx(1.0)
+
+
+def test_a_value_without_a_time_counts_once_in_the_overall_figures():
+    # audit 12: one untimed value counted once per step (21 times, the initial state included) beside ten
+    # timed values and made the overall figures its history: 0.32 within, RMS 0.133 where 10 of 11 agree
+    from phasegauge.analysis.probes import validation_summary, validation_table
+
+    times = np.linspace(0.0, 2.0, 21)
+    timed = [(0.5, 0.5, 0.0, 0.5 - 0.005, t, 0.01) for t in times[1::2]]  # each 0.005 off: within
+    untimed = [(0.2, 0.2, 0.0, 0.25, np.nan, 0.01)]  # a steady reading the run approaches
+    simulated = np.empty((21, 11))
+    simulated[:, :10] = 0.5
+    simulated[:, 10] = 0.25 * times / 2.0  # from 0 at t = 0 to 0.25 at the end
+    table = validation_table(timed + untimed, times, simulated)
+    assert table["every_step"].sum() == 21 and (~table["every_step"]).sum() == 10
+    overall = validation_summary(table).iloc[-1]
+    assert overall["scope"] == "overall" and overall["points"] == 11
+    assert overall["within_uncertainty"] == pytest.approx(1.0)  # the untimed value at the last step: exact
+    assert overall["rms_error"] == pytest.approx(np.sqrt(10 * 0.005 ** 2 / 11))
+
+
+def test_an_uncertainty_of_zero_allows_round_off():
+    # audit 12: equal values 1e-16 apart with uncertainty 0 read "outside"
+    from phasegauge.analysis.probes import validation_table
+
+    table = validation_table([(0.0, 0.0, 0.0, 0.1 + 0.2, 0.0, 0.0), (0.0, 0.0, 0.0, 0.31, 0.0, 0.0)],
+                             np.array([0.0]), np.array([[0.3, 0.3]]))
+    assert table["within_uncertainty"].tolist() == [True, False]
+
+
+def test_a_probe_in_a_cell_without_a_value_reads_empty(tmp_path):
+    # audit 12: a probe inside a cell whose value is NaN read a value rebuilt from the neighbours (0.325),
+    # where the same data on points gives NaN
+    from phasegauge.errors import MeshWarning
+
+    mesh = grid_mesh((8, 8))
+    centre = mesh.cell_centroids
+    for k in range(2):
+        c = _field(centre[:, 0], centre[:, 1], 0.0)
+        hole = int(np.argmin(np.hypot(centre[:, 0] - 0.5625, centre[:, 1] - 0.5625)))
+        c[hole] = np.nan
+        to_meshio(mesh, cell_data={"f": c}).write(tmp_path / f"n_{k}.vtu")
+    options = MeasureOptions(field="f", analyses=("conservation",),
+                             probes=(("in_hole", 0.5625, 0.5625), ("elsewhere", 0.2, 0.2)))
+    with pytest.warns(MeshWarning, match="points in cells with no finite value.*in_hole"):
+        result = measure(tmp_path, options=options)
+    by_name = result.probes.groupby("probe")["value"]
+    assert by_name.apply(lambda v: v.isna().all())["in_hole"]
+    assert np.isfinite(result.probes.loc[result.probes["probe"] == "elsewhere", "value"]).all()

@@ -72,7 +72,8 @@ def _on_periodic_planes(mesh: Mesh, centre: np.ndarray, periodic: tuple) -> np.n
         if AXIS_INDEX[name] not in axes:
             continue
         column = axes.index(AXIS_INDEX[name])
-        on |= (np.abs(centre[:, column] - lo[column]) <= tolerance) | (np.abs(centre[:, column] - hi[column]) <= tolerance)
+        along = centre[:, column]
+        on |= (np.abs(along - lo[column]) <= tolerance) | (np.abs(along - hi[column]) <= tolerance)
     return on
 
 
@@ -203,7 +204,8 @@ def open_boundary_flux(mesh: Mesh, velocity, c=None, *, tolerance: float = OPEN_
         - ``boundary_outflow``: net int u.n dS over the open faces, volume
           leaving per unit time (negative: net inflow);
         - ``boundary_phase_outflow``: net int c u.n dS over the open faces,
-          phase volume leaving per unit time (with ``c``).
+          phase volume leaving per unit time (with ``c``); NaN when c is not
+          finite on an open face.
 
     Notes
     -----
@@ -275,7 +277,10 @@ def open_boundary_flux(mesh: Mesh, velocity, c=None, *, tolerance: float = OPEN_
             cv = c_values[pieces]
         else:
             cv = np.repeat(c_values[owners][:, None], k, axis=1)
+        # an open face whose c is not finite carries an unknown phase flux: the step's rate is NaN
+        # (drift_columns takes it from the steps around), never that face's flux read as 0
+        unknown = bool((is_open & ~np.isfinite(cv).all(axis=1)).any())
         cv = np.where(np.isfinite(cv), cv, 0.0)
         product = (np.einsum("nk,nk->n", cv, un) + cv.sum(axis=1) * un.sum(axis=1)) / (k * (k + 1))
-        out["boundary_phase_outflow"] = float(dot(weight, product))
+        out["boundary_phase_outflow"] = np.nan if unknown else float(dot(weight, product))
     return out

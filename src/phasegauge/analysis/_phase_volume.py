@@ -148,7 +148,9 @@ def drift_columns(steps_df: pd.DataFrame) -> pd.DataFrame:
         ``phase_volume_drift_abs`` (volume units). With ``time`` and
         ``boundary_phase_outflow`` also ``phase_volume_outflow`` (phase volume
         that left through the boundary since the first step, trapezoidal rule
-        in time: as exact as the output interval allows) and
+        in time: as exact as the output interval allows; a step's rate that is
+        NaN, c not finite on an open face, is interpolated linearly in time
+        from the steps around it) and
         ``phase_volume_drift_closed`` = (V + outflow - V0) / V0, the drift the
         boundary flux does not explain; not added when the table has an
         ``open_boundary`` column that is false at every step.
@@ -165,6 +167,9 @@ def drift_columns(steps_df: pd.DataFrame) -> pd.DataFrame:
     if "boundary_phase_outflow" in out and "time" in out and len(out) and any_open:
         rate = out["boundary_phase_outflow"].to_numpy(dtype=np.float64)
         t = out["time"].to_numpy(dtype=np.float64)
+        known = np.isfinite(rate)
+        if known.any() and not known.all():  # a rate not known (c not finite on an open face): from the steps around
+            rate = np.interp(t, t[known], rate[known])
         outflow = np.concatenate([[0.0], np.cumsum(0.5 * (rate[1:] + rate[:-1]) * np.diff(t))])
         out["phase_volume_outflow"] = outflow
         v0 = float(out["phase_volume"].iloc[0])

@@ -11,8 +11,9 @@ __all__ = ["validation_table", "validation_summary", "VALIDATION_COLUMNS", "SUMM
 #: columns of validation.csv (one row per measured value and compared time; ``step`` empty
 #: where the time lies between steps)
 VALIDATION_COLUMNS = ("step", "time", "x", "y", "z", "measured", "simulated", "difference", "uncertainty",
-                      "within_uncertainty")
-#: columns of validation_summary.csv (one row per time, then one overall row with an empty step and time)
+                      "within_uncertainty", "every_step")
+#: columns of validation_summary.csv (one row per time, then one overall row with an empty step and time:
+#: each measured value once, a value without a time at the last step)
 SUMMARY_COLUMNS = ("step", "time", "scope", "points", "rms_error", "bias", "largest_error", "within_uncertainty")
 
 
@@ -38,7 +39,9 @@ def validation_table(measured, times, simulated, *, steps=None):
         time span; ``step`` is the step at that time, empty between steps);
         a value without a time is compared at every step.
         ``difference`` is simulated minus measured; ``within_uncertainty`` is
-        |difference| <= uncertainty (empty without an uncertainty).
+        |difference| <= uncertainty (empty without an uncertainty), with a round-off allowance of
+        1e-12 of the larger value (an uncertainty of 0 claims the value exactly); ``every_step``
+        is True for a value without a time (compared at every step).
     """
     import pandas as pd
 
@@ -63,11 +66,11 @@ def validation_table(measured, times, simulated, *, steps=None):
             sim = np.where(span, sim, np.nan)
         at = np.clip(np.searchsorted(times, t), 0, len(times) - 1)
         on_step = np.isclose(times[at], t, rtol=1e-12, atol=1e-12 * max(1.0, float(np.abs(times).max())))
-        parts.append((t, rows[k], sim, np.where(on_step, steps[at], -1)))
+        parts.append((t, rows[k], sim, np.where(on_step, steps[at], -1), np.zeros(k.size, dtype=bool)))
     if (~timed).any():
         k = np.flatnonzero(~timed)
         parts.append((np.repeat(times, len(k)), np.tile(rows[k], (len(times), 1)), simulated[:, k].ravel(),
-                      np.repeat(steps, len(k))))
+                      np.repeat(steps, len(k)), np.ones(len(times) * k.size, dtype=bool)))
     if not parts:
         return pd.DataFrame(columns=list(VALIDATION_COLUMNS))
     t = np.concatenate([p[0] for p in parts])
@@ -77,10 +80,12 @@ def validation_table(measured, times, simulated, *, steps=None):
     step[step < 0] = pd.NA
     diff = sim - r[:, 3]
     unc = r[:, 5]
-    within = pd.array(np.abs(diff) <= unc, dtype="boolean")
+    roundoff = 1e-12 * np.maximum(np.abs(r[:, 3]), np.abs(np.nan_to_num(sim)))  # equal values read equal
+    within = pd.array(np.abs(diff) <= unc + roundoff, dtype="boolean")
     within[~(np.isfinite(unc) & np.isfinite(diff))] = pd.NA
     table = pd.DataFrame({"step": step, "time": t, "x": r[:, 0], "y": r[:, 1], "z": r[:, 2], "measured": r[:, 3],
-                          "simulated": sim, "difference": diff, "uncertainty": unc, "within_uncertainty": within})
+                          "simulated": sim, "difference": diff, "uncertainty": unc, "within_uncertainty": within,
+                          "every_step": np.concatenate([p[4] for p in parts])})
     return table.sort_values("time", kind="stable", ignore_index=True)
 
 
@@ -109,7 +114,10 @@ def validation_summary(table):
     DataFrame
         :data:`SUMMARY_COLUMNS`; ``scope`` is ``'time'`` for the rows of one
         time (``step`` empty between steps) and ``'overall'`` for the last row
-        (its step and time empty). Points whose
+        (its step and time empty): each measured value counts once there, a
+        value without a time at the last step (the state the run reaches; at
+        every step it would weigh as many times as there are steps, the
+        initial state included). Points whose
         simulated value is empty (outside the mesh or the time span) are left
         out; ``within_uncertainty`` counts only points with an uncertainty.
     """
@@ -121,7 +129,13 @@ def validation_summary(table):
     step = table["step"] if "step" in table else pd.Series(pd.NA, index=table.index, dtype="Int64")
     for t, idx in table.groupby("time", sort=True).indices.items():
         rows.append({"step": step.iloc[idx[0]], "time": t, "scope": "time", **_figures(diff[idx], within.iloc[idx])})
-    rows.append({"step": pd.NA, "time": np.nan, "scope": "overall", **_figures(diff, within)})
+    once = np.ones(len(table), dtype=bool)
+    if "every_step" in table and len(table):
+        every = table["every_step"].to_numpy(dtype=bool)
+        last = table["time"].to_numpy(dtype=float)[every].max(initial=-np.inf)
+        once = ~every | (table["time"].to_numpy(dtype=float) == last)
+    rows.append({"step": pd.NA, "time": np.nan, "scope": "overall",
+                 **_figures(diff[once], within[once])})
     frame = pd.DataFrame(rows, columns=list(SUMMARY_COLUMNS))
     frame["step"] = frame["step"].astype("Int64")
     return frame

@@ -7,8 +7,9 @@ Converters of finite-volume solvers write one per step, naming the internal
 image, rectilinear and structured grids: ``.vtu``, ``.vti``, ``.vtr``, ``.vts``)
 are read with their own format's reader and joined into one mesh; polygon-data
 blocks (``.vtp``: boundary patches, surfaces) are left out and named by
-:func:`multiblock_blocks`. The step's time is the one stored in the first
-volume block's field data.
+:func:`multiblock_blocks`; so are volume-format blocks whose cells are all of a lower dimension than
+another block's (patches written as unstructured grids of faces), named in a warning when read. The
+step's time is the one stored in the first volume block's field data.
 """
 
 from __future__ import annotations
@@ -137,6 +138,7 @@ def read_multiblock(path: str):
 
     blocks = multiblock_blocks(path)
     pieces = [read_mesh_file(_volume_file(path, file)) for _, file in blocks.volume]
+    pieces = _without_patches(pieces, blocks.volume, path)
     if len(pieces) == 1:
         return pieces[0]
     pieces = [_owned_cells(piece) for piece in pieces]
@@ -160,6 +162,34 @@ def read_multiblock(path: str):
         joined.cell_pieces = [mark for p in pieces
                               for mark in (getattr(p, "cell_pieces", None) or [None] * len(p.cells))]
     return joined
+
+
+def _top_dimension(piece) -> int:
+    """The largest dimension among a block's cells (3 for a type the model does not name: never a patch)."""
+    from ..model.cells import CELL_DIMENSION, LINEAR_CORNERS
+
+    return max((CELL_DIMENSION.get(LINEAR_CORNERS.get(b.type, (b.type,))[0], 3) for b in piece.cells), default=3)
+
+
+def _without_patches(pieces: list, named: tuple, path: str) -> list:
+    """The blocks without those whose cells are all of a lower dimension than another block's: boundary
+    patches written as unstructured grids of faces (as ``.vtp`` patches, left out). Joined, their points
+    would merge with the wall points and average the patch's values (a boundary condition's) into the
+    volume's. Named in one :class:`MeshWarning`."""
+    dims = [_top_dimension(p) for p in pieces]
+    top = max(dims)
+    if all(d == top for d in dims):
+        return pieces
+    import warnings
+
+    from ..errors import MeshWarning
+
+    names = [name or os.path.splitext(os.path.basename(file))[0] for (name, file), d in zip(named, dims) if d < top]
+    plural = len(names) != 1
+    warnings.warn(MeshWarning(f"block{'s' if plural else ''} {', '.join(names)} hold{'' if plural else 's'} "
+                              f"only cells of lower dimension than the volume's (boundary patches): left out, the "
+                              "volume blocks are read", where=path), stacklevel=3)
+    return [p for p, d in zip(pieces, dims) if d == top]
 
 
 def _owned_cells(piece):

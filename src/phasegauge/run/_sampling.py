@@ -167,6 +167,15 @@ def sample_step(mesh, indicator, options, *, where: str = ""):
     points, parts = sample_layout(options)
     sampler = point_sampler(mesh, resolve_z(mesh, points, options, parts))
     c = sampler(indicator.point)
+    if indicator.location == "cell":  # a point in a cell the solver wrote no finite value for has none
+        held = np.flatnonzero(sampler.cells >= 0)
+        empty = held[~np.isfinite(np.asarray(indicator.cell)[sampler.cells[held]])]
+        if empty.size:
+            c[empty] = np.nan
+            none = np.ones(c.size, dtype=bool)
+            none[empty] = False
+            warnings.warn(MeshWarning(f"points in cells with no finite value (their values are empty): "
+                                      f"{_outside_names(none, options, parts)}", where=where), stacklevel=2)
     lo, hi = options.range
     value = lo + (hi - lo) * (c if options.phase == "upper" else 1.0 - c)
     if not sampler.inside.all():
