@@ -190,3 +190,23 @@ def test_wall_with_round_off_velocity_is_not_open():
                   np.zeros_like(x)], axis=1)
     out = open_boundary_flux(mesh, u, velocity_location="point")
     assert out["open_boundary"] is False and out["open_boundary_area"] == 0.0
+
+
+def test_an_undershoot_at_a_few_points_is_not_averaged_away():
+    # audit 13: one line of points at c = -1e-3 beside a front on points read c_min -0.001 but overshoot
+    # volume 0 (the cells' corner means cancel it against the positive corners), and no finding. Reference:
+    # the lumped integral of the excess over the points' shares of the cells' volume, each point of a
+    # regular grid holding h^2 (a quarter of each of its four cells), by numpy
+    from phasegauge.analysis.conservation import boundedness
+    from phasegauge.model.indicator import make_indicator
+    from phasegauge.io._meshio_adapter import StepFields
+
+    mesh = grid_mesh((64, 64))
+    x, y = mesh.points[:, 0], mesh.points[:, 1]
+    c = 0.5 * (1 + np.tanh((0.5 - x) / 0.02))
+    line = np.isclose(x, 40 / 64) & (y > 0) & (y < 1)  # inner points: each holds h^2
+    c[line] = -1e-3
+    ind = make_indicator(mesh, StepFields(point_data={"c": c}), "c")
+    got = boundedness(mesh, ind)
+    assert got["c_min"] == pytest.approx(-1e-3)
+    assert got["overshoot_volume"] == pytest.approx(line.sum() * 1e-3 / 64 ** 2, rel=1e-9)

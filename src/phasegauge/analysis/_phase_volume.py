@@ -29,8 +29,13 @@ def boundedness(mesh: Mesh, indicator) -> dict:
         - ``c_min``, ``c_max``: extreme finite values where the data lives
           (points for point data, cells for cell data or a plain array);
           NaN when no value is finite;
-        - ``overshoot_volume``: int max(0, c - 1, -c) dV over the cells with
-          finite c, in volume units (area in 2D); 0 for a bounded field;
+        - ``overshoot_volume``: int max(0, c - 1, -c) dV, in volume units (area
+          in 2D); 0 for a bounded field. For data on cells (or an array) over
+          the cells with finite c; for data on points over the points with
+          finite c, each point's excess times its share of the cells' volume
+          (:func:`._bulk_plateaus.point_volumes`, lumped): the cells' corner
+          means would let a dip at a few points cancel against their
+          neighbours and read 0;
         - ``nonfinite_values``: count of NaN/Inf input values
           (``indicator.nonfinite``; for an array, its non-finite cells).
     """
@@ -43,12 +48,19 @@ def boundedness(mesh: Mesh, indicator) -> dict:
         nonfinite = int(np.count_nonzero(~np.isfinite(c)))
     native = np.asarray(native, dtype=np.float64)
     finite = native if np.isfinite(native).all() else native[np.isfinite(native)]
-    outside = np.flatnonzero((c > 1.0) | (c < 0.0))  # the cells with an excess (NaN compares False)
-    excess = np.maximum(c[outside] - 1.0, -c[outside])
+    on_points = isinstance(indicator, Indicator) and indicator.location == "point"
+    values = native if on_points else c
+    outside = np.flatnonzero((values > 1.0) | (values < 0.0))  # those with an excess (NaN compares False)
+    excess = np.maximum(values[outside] - 1.0, -values[outside])
+    if on_points:
+        from ._bulk_plateaus import point_volumes
+
+        volume = float(dot(excess, point_volumes(mesh)[outside])) if outside.size else 0.0
+    else:
+        volume = float(dot(excess, mesh.cell_measures[outside]))
     return {"c_min": float(finite.min()) if finite.size else np.nan,
             "c_max": float(finite.max()) if finite.size else np.nan,
-            "overshoot_volume": float(dot(excess, mesh.cell_measures[outside])),
-            "nonfinite_values": nonfinite}
+            "overshoot_volume": volume, "nonfinite_values": nonfinite}
 
 
 def _densities(densities) -> tuple[float, float]:
