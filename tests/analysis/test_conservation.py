@@ -210,3 +210,18 @@ def test_an_undershoot_at_a_few_points_is_not_averaged_away():
     got = boundedness(mesh, ind)
     assert got["c_min"] == pytest.approx(-1e-3)
     assert got["overshoot_volume"] == pytest.approx(line.sum() * 1e-3 / 64 ** 2, rel=1e-9)
+
+
+def test_a_linear_undershoot_on_points_integrates_exactly():
+    # c = x - 0.1 on a 20 x 20 grid of the unit square (0.1 on a grid line): int max(0, -c) dA =
+    # int_0^0.1 (0.1 - x) dx = 0.005 [analytic]; the points' lumped volumes are the trapezoid rule, exact
+    # for an excess linear between points
+    from phasegauge.analysis.conservation import boundedness
+    from phasegauge.io._meshio_adapter import StepFields
+    from phasegauge.model.indicator import make_indicator
+
+    for kind in ("quad", "triangle"):
+        mesh = grid_mesh((20, 20), kind=kind)
+        c = mesh.points[:, 0] - 0.1
+        ind = make_indicator(mesh, StepFields(point_data={"c": c}), "c")
+        assert boundedness(mesh, ind)["overshoot_volume"] == pytest.approx(0.005, rel=1e-12)

@@ -145,3 +145,24 @@ def test_a_probe_in_a_cell_without_a_value_reads_empty(tmp_path):
     by_name = result.probes.groupby("probe")["value"]
     assert by_name.apply(lambda v: v.isna().all())["in_hole"]
     assert np.isfinite(result.probes.loc[result.probes["probe"] == "elsewhere", "value"]).all()
+
+
+def test_the_python_sampler_takes_the_same_rule_for_points_without_z(tmp_path):
+    # review 51: sample_points refused read_probe_file's rows (z NaN) on an x-y mesh, and two-column
+    # points on a mesh in the x-z plane still sat on z = 0 (0.15 for 0.39)
+    from phasegauge.analysis.probes import sample_points
+    from phasegauge.errors import OptionError
+    from phasegauge.io import Series
+
+    for plane, refused in (("xy", False), ("xz", True)):
+        step = Series(_plane_series(tmp_path / plane, plane)).read(0)
+        values = np.asarray(step.fields.point_data["f"])
+        for points in ([[0.25, 0.3]], [[0.25, 0.3, np.nan]]):
+            if refused:
+                with pytest.raises(OptionError, match="give no z, but the mesh lies in the x-z plane"):
+                    sample_points(step.mesh, values, points)
+            else:  # the field in the plane's axes (x, y) [analytic]
+                assert sample_points(step.mesh, values, points)[0] == pytest.approx(0.5 + 0.3 * 0.25 + 0.4 * 0.3)
+    step = Series(tmp_path / "xz").read(0)
+    got = sample_points(step.mesh, np.asarray(step.fields.point_data["f"]), [[0.25, 0.0, 0.3]])
+    assert got[0] == pytest.approx(0.5 + 0.3 * 0.25 + 0.4 * 0.3)

@@ -204,8 +204,10 @@ def open_boundary_flux(mesh: Mesh, velocity, c=None, *, tolerance: float = OPEN_
         - ``boundary_outflow``: net int u.n dS over the open faces, volume
           leaving per unit time (negative: net inflow);
         - ``boundary_phase_outflow``: net int c u.n dS over the open faces,
-          phase volume leaving per unit time (with ``c``); NaN when c is not
-          finite on an open face.
+          phase volume leaving per unit time (with ``c``); on an open face
+          where c is not finite, c is taken as 0.5, and
+        - ``boundary_phase_outflow_unknown`` (only where there are such faces):
+          half the flow through them, the most that may be off.
 
     Notes
     -----
@@ -277,10 +279,12 @@ def open_boundary_flux(mesh: Mesh, velocity, c=None, *, tolerance: float = OPEN_
             cv = c_values[pieces]
         else:
             cv = np.repeat(c_values[owners][:, None], k, axis=1)
-        # an open face whose c is not finite carries an unknown phase flux: the step's rate is NaN
-        # (drift_columns takes it from the steps around), never that face's flux read as 0
-        unknown = bool((is_open & ~np.isfinite(cv).all(axis=1)).any())
-        cv = np.where(np.isfinite(cv), cv, 0.0)
+        # an open face whose c is not finite carries an unknown phase flux: c in [0, 1] there, so it is
+        # taken at 0.5 (never 0), and half its flow is the bound of what that may be off
+        unknown = is_open & ~np.isfinite(cv).all(axis=1)
+        cv = np.where(np.isfinite(cv), cv, 0.5)
         product = (np.einsum("nk,nk->n", cv, un) + cv.sum(axis=1) * un.sum(axis=1)) / (k * (k + 1))
-        out["boundary_phase_outflow"] = np.nan if unknown else float(dot(weight, product))
+        out["boundary_phase_outflow"] = float(dot(weight, product))
+        if unknown.any():
+            out["boundary_phase_outflow_unknown"] = 0.5 * float(dot(measure[unknown], np.abs(un[unknown].mean(axis=1))))
     return out

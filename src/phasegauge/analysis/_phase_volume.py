@@ -12,7 +12,7 @@ from ..model.mesh import Mesh
 from ._sums import dot
 
 
-__all__ = ["boundedness", "conservation_metrics", "volume_drift", "drift_columns"]
+__all__ = ["boundedness", "conservation_metrics", "volume_drift", "drift_columns", "known_rates"]
 
 
 def boundedness(mesh: Mesh, indicator) -> dict:
@@ -143,6 +143,19 @@ def volume_drift(phase_volumes) -> tuple[np.ndarray, np.ndarray]:
     return absolute / v[0], absolute
 
 
+def known_rates(steps: pd.DataFrame) -> np.ndarray:
+    """``boundary_phase_outflow`` per step with a step's NaN (a velocity not finite on an open face)
+    interpolated linearly in time from the steps around it; zeros where no step has one."""
+    rate = steps["boundary_phase_outflow"].to_numpy(dtype=np.float64)
+    known = np.isfinite(rate)
+    if known.all():
+        return rate
+    if not known.any():
+        return np.zeros(rate.size)
+    t = steps["time"].to_numpy(dtype=np.float64)
+    return np.interp(t, t[known], rate[known])
+
+
 def drift_columns(steps_df: pd.DataFrame) -> pd.DataFrame:
     """A copy of a steps table with the phase-volume drift added.
 
@@ -161,8 +174,7 @@ def drift_columns(steps_df: pd.DataFrame) -> pd.DataFrame:
         ``boundary_phase_outflow`` also ``phase_volume_outflow`` (phase volume
         that left through the boundary since the first step, trapezoidal rule
         in time: as exact as the output interval allows; a step's rate that is
-        NaN, c not finite on an open face, is interpolated linearly in time
-        from the steps around it) and
+        NaN is taken from the steps around it, :func:`known_rates`) and
         ``phase_volume_drift_closed`` = (V + outflow - V0) / V0, the drift the
         boundary flux does not explain; not added when the table has an
         ``open_boundary`` column that is false at every step.
@@ -177,11 +189,8 @@ def drift_columns(steps_df: pd.DataFrame) -> pd.DataFrame:
     # a series with no open boundary at any step gets no outflow columns (nothing crossed)
     any_open = "open_boundary" not in out or bool(out["open_boundary"].astype(bool).any())
     if "boundary_phase_outflow" in out and "time" in out and len(out) and any_open:
-        rate = out["boundary_phase_outflow"].to_numpy(dtype=np.float64)
+        rate = known_rates(out)
         t = out["time"].to_numpy(dtype=np.float64)
-        known = np.isfinite(rate)
-        if known.any() and not known.all():  # a rate not known (c not finite on an open face): from the steps around
-            rate = np.interp(t, t[known], rate[known])
         outflow = np.concatenate([[0.0], np.cumsum(0.5 * (rate[1:] + rate[:-1]) * np.diff(t))])
         out["phase_volume_outflow"] = outflow
         v0 = float(out["phase_volume"].iloc[0])

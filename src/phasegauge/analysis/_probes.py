@@ -69,15 +69,26 @@ class PointSampler:
         return values
 
 
-def _as_points(points) -> np.ndarray:
+def _as_points(points, mesh: Mesh) -> np.ndarray:
+    """Points as (n, 3); z not given (two columns, or NaN as a file without z columns reads) is 0 on a 2D
+    mesh in the x-y plane (its normal) and refused on any other mesh (two numbers would be read as x and
+    y where the plane is x-z or y-z, or put on z = 0 in 3D)."""
     P = np.asarray(points, dtype=float)
     if P.ndim != 2 or P.shape[1] not in (2, 3):
         raise OptionError(f"points must be an array of shape (n, 2) or (n, 3), found shape {P.shape}",
                           fix="give x, y and (in 3D) z of each point")
-    if not np.isfinite(P).all():
-        raise OptionError("point coordinates must be finite numbers", fix="check the probe or line file")
     if P.shape[1] == 2:
-        P = np.column_stack([P, np.zeros(len(P))])
+        P = np.column_stack([P, np.full(len(P), np.nan)])
+    if not (np.isfinite(P[:, :2]).all() and not np.isinf(P[:, 2]).any()):
+        raise OptionError("point coordinates must be finite numbers", fix="check the probe or line file")
+    missing = np.isnan(P[:, 2])
+    if missing.any():
+        if not (mesh.dimension == 2 and 2 not in tuple(mesh.plane_axes)):
+            plane = "the " + "-".join("xyz"[a] for a in mesh.plane_axes) + " plane" if mesh.dimension == 2 else "3D"
+            raise OptionError(f"{int(missing.sum())} point(s) give no z, but the mesh lies in {plane}: only a mesh in "
+                              "the x-y plane takes points without z (as z = 0)", fix="give x, y and z of each point")
+        P = P.copy()
+        P[missing, 2] = 0.0
     return P
 
 
@@ -89,7 +100,8 @@ def point_sampler(mesh: Mesh, points) -> PointSampler:
     mesh : Mesh
     points : array_like of shape (n, 3) or (n, 2)
         x, y, z of each point in mesh length units. For a 2D mesh the
-        coordinate normal to its plane is ignored.
+        coordinate normal to its plane is ignored. Two columns (or z NaN) are x
+        and y of a mesh in the x-y plane; any other mesh refuses them.
 
     Returns
     -------
@@ -100,7 +112,7 @@ def point_sampler(mesh: Mesh, points) -> PointSampler:
     Barycentric (linear) interpolation on simplices, e.g. Zienkiewicz, O. C., Taylor, R. L. and
     Zhu, J. Z. (2013), The Finite Element Method: Its Basis and Fundamentals, 7th ed., ch. 6.
     """
-    P = _as_points(points)
+    P = _as_points(points, mesh)
     digest = hashlib.sha1(np.ascontiguousarray(P).tobytes()).hexdigest()
     return mesh.memo(("point_sampler", digest), lambda: _build(mesh, P))
 
