@@ -172,7 +172,7 @@ class DropletTracker:
                               velocity_known=velocity_known, whole_cells=whole_cells)
 
     def add_cells(self, step, time, mesh, table, cells, labels, weights, *, velocity_known=None,
-                  whole_cells: bool = False):
+                  whole_cells: bool = False, cell_velocity=None):
         """Add the next step from its labelled cells only (no array over every cell).
 
         Parameters
@@ -199,6 +199,11 @@ class DropletTracker:
         whole_cells : bool
             ``cells`` are whole cells of a split mesh (as :func:`label_droplets` labels one);
             False: cells of the mesh as analysed (the pieces of a split mesh).
+        cell_velocity : ndarray of shape (k, dimension), optional
+            The velocity of each labelled cell (in the mesh's plane axes in 2D): with a known
+            velocity, each cell is moved by its own before the overlap, so a satellite that lags
+            its drop at pinch-off lands on itself (moved by the drop's mean velocity it missed,
+            and read as an appearance); without it, by its drop's mean velocity.
 
         Returns
         -------
@@ -234,8 +239,12 @@ class DropletTracker:
                     else np.full(n_drop, np.nan))
         box = (mesh.bounds[0, plane], mesh.bounds[1, plane])
         whole_cells = bool(whole_cells) and mesh.cell_parents is not None
+        own = None
+        if velocity_known and cell_velocity is not None:
+            own = np.asarray(cell_velocity, dtype=float).reshape(len(cells), dim)
+            own = np.where(np.isfinite(own), own, velocity[labels])  # a cell without one: its drop's
         current = {"step": step, "time": float(time), "mesh": mesh, "cells": cells, "whole": whole_cells,
-                   "labels": labels.astype(np.int64), "weights": weights,
+                   "labels": labels.astype(np.int64), "weights": weights, "cell_velocity": own,
                    "core_volume": core_volume,
                    "volume": volume, "centroid": centroid, "velocity": velocity,
                    "diameter": diameter, "n": n_drop, "axes": axes, "box": box}
@@ -277,7 +286,8 @@ class DropletTracker:
         axes = cur["axes"]
         # ------------------------------------------------ overlap of moved previous cores
         mesh_p, mesh_c = prev["mesh"], cur["mesh"]
-        shift = prev["velocity"] * dt
+        own = prev.get("cell_velocity")
+        shift = prev["velocity"][prev["labels"]] * dt if own is None else own * dt  # per labelled cell
         moved = bool(np.any(shift != 0))
         same_mesh = mesh_p is mesh_c or (mesh_p.n_cells == mesh_c.n_cells
                                          and mesh_p.signature == mesh_c.signature)
@@ -286,7 +296,7 @@ class DropletTracker:
         else:
             parents = None if prev["whole"] else mesh_p.cell_parents
             points = mesh_p.cell_centroids[prev["cells"] if parents is None else parents[prev["cells"]]]
-            points = points + shift[prev["labels"]]
+            points = points + shift
             for ax in axes:
                 period = hi[ax] - lo[ax]
                 points[:, ax] = lo[ax] + np.mod(points[:, ax] - lo[ax], period)

@@ -23,12 +23,13 @@ JUMP_FACTOR = 1.5
 SAME_VOLUME = 0.1
 
 
-def tracking_findings(droplets, events, options, bounds=None, steps=None) -> list:
+def tracking_findings(droplets, events, options, bounds=None, steps=None, numbered: bool = False) -> list:
     """A warning when tracks look unreliable (see the module notes), naming the fix: a velocity field
     (``--velocity``), or output written more often. Drops flagged under-resolved, and with ``bounds``
     (the domain's, shape (2, 3)) drops whose box touches the domain's (one leaving through an outlet
     shrinks), are left out of the jumps; with ``steps`` (steps.csv), so are links across which the bulk
-    values the droplets are measured between (``bulk_c_low``, ``bulk_c_high``) moved by more than 0.005."""
+    values the droplets are measured between (``bulk_c_low``, ``bulk_c_high``) moved by more than 0.005.
+    ``numbered``: the steps store no times, so a velocity given could not be used (the fix names the times)."""
     from .assemble import Finding
 
     if droplets is None or not len(droplets) or "track" not in droplets:
@@ -48,8 +49,13 @@ def tracking_findings(droplets, events, options, bounds=None, steps=None) -> lis
     if pairs:
         parts.append(f"{len(pairs)} drop(s) disappear as another of the same volume (within "
                      f"{100 * SAME_VOLUME:g} %) appears in the same step (first at t = {min(pairs):g})")
-    fix = ("give the velocity field (--velocity) so cells are moved before they are matched, or write output "
-           "more often" if options.velocity is None else "write output more often")
+    if options.velocity is None:
+        fix = "give the velocity field (--velocity) so cells are moved before they are matched"
+    elif numbered:
+        fix = "give the steps' times (a 'time,path' listing) so the velocity moves the drops"
+    else:
+        fix = "write output more often"
+    fix += ", or write output more often" if options.velocity is None or numbered else ""
     text = ("droplet tracks may link different drops: " + "; ".join(parts) + ", as when drops move about "
             f"their own size or more between outputs; {fix} (counts and volumes per step are not affected)")
     return [Finding("tracking_unreliable", "warning", text,

@@ -91,6 +91,12 @@ def domain_refusal(before, after):
                            "drift across it includes the change", where)
 
 
+#: the note of a tracking run with a velocity over steps that store no times
+NUMBERED_VELOCITY = ("the steps store no times (numbered 0, 1, 2 ...), so the velocity cannot move the drops between "
+                     "outputs (it would move them by velocity x 1): they are matched by overlap alone; give a "
+                     "'time,path' listing of the steps' times to use it")
+
+
 class TrackingFeed:
     """Droplet tracking fed with the step results in step order, while they arrive in any order.
 
@@ -115,6 +121,7 @@ class TrackingFeed:
         from ..analysis.tracking import DropletTracker
 
         self.tracking = "droplets" in options.analyses
+        self.velocity = options.velocity
         self.tracker = (DropletTracker(ignore_remerge_within=options.ignore_remerge_within,
                                        periodic=options.periodic) if self.tracking else None)
         self._order = list(indices)
@@ -199,13 +206,19 @@ class TrackingFeed:
                     outline = self._outline(result.outline.signature)
                     if outline is None:
                         return  # linked when the outline arrives
+                    # steps numbered 0, 1, 2 ... (no times stored): the velocity would move the drops by
+                    # velocity x 1 between outputs, so they are matched by overlap alone (and told)
+                    numbered = getattr(result, "time_origin", "") == "index" and self.velocity is not None
+                    if numbered:
+                        self.domain_notes.append((SeriesWarning, NUMBERED_VELOCITY, ""))
                     self.tracker.add_cells(result.index, result.time, outline, result.droplets,
                                            result.label_cells, result.label_values, result.label_weights,
-                                           whole_cells=result.label_whole)
+                                           whole_cells=result.label_whole, velocity_known=False if numbered else None,
+                                           cell_velocity=getattr(result, "label_velocity", None))
                     self._last = outline
             # the labelled cells are read by the tracking only (which keeps the last step's): the
             # result list keeps no per-cell arrays, so a run's memory stays flat in its steps
-            result.label_cells = result.label_values = result.label_weights = None
+            result.label_cells = result.label_values = result.label_weights = result.label_velocity = None
             del self._waiting[self._order[self._position]]
             self._position += 1
         needed = {r.outline.signature for r in self._waiting.values() if r.outline is not None}
@@ -353,7 +366,8 @@ def assemble(series, results: list, options, *, notes=(), feed: TrackingFeed | N
     found = findings(steps, droplets, audit, options, skipped, dimension=done[0].dimension,
                      on_points=any(getattr(r, "velocity_location", None) == "point" for r in done))
     found += mixture_findings(steps, options) + level_set_findings(steps)
-    found += tracking_findings(droplets, events, options, bounds=done[0].outline.bounds, steps=steps) + [
+    found += tracking_findings(droplets, events, options, bounds=done[0].outline.bounds, steps=steps,
+                               numbered=any(getattr(r, "time_origin", "") == "index" for r in done)) + [
         Finding("warning", "warning", text, {"category": category.__name__})
         for category, text in summary if not issubclass(category, SkippedStepWarning)]
     mesh = None

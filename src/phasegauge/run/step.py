@@ -42,7 +42,8 @@ class StepResult:
     identity, extent and, in a run with droplets, the cell centroids while the
     step waits to be tracked); ``label_cells``, ``label_values`` and
     ``label_weights`` are the labelled cells of the droplet analysis (cell numbers, droplet
-    numbers, ``c dV``): on a mesh whose cells a reader split (``label_whole``), whole cells
+    numbers, ``c dV``; ``label_velocity`` their velocities with a velocity field, on a mesh
+    not split by its reader): on a mesh whose cells a reader split (``label_whole``), whole cells
     numbered by :attr:`Mesh.cell_parents`, as the droplets are labelled there. Once the run's
     :class:`~phasegauge.run.assemble.TrackingFeed` has linked the step they are None (its
     tracking reads them first, when it tracks the step): the run's result list keeps no
@@ -58,6 +59,7 @@ class StepResult:
     label_values: np.ndarray | None = None
     label_weights: np.ndarray | None = None
     label_whole: bool = False  # label_cells are whole cells of a split mesh
+    label_velocity: np.ndarray | None = None  # (k, dimension) velocity of the labelled cells, or None
     profile: object = None  # DataFrame or None
     contour: object = None  # Contour of the step (kept for snapshots)
     mesh_signature: str = ""
@@ -354,6 +356,8 @@ def _phase_analyses(step, mesh, ind, options, result, m: dict, velocity: tuple, 
         result.label_values = found.labels[labelled].astype(np.int32)
         result.label_weights = np.asarray(found.weights)[labelled]
         result.label_whole = bool(found.whole_cells)  # numbered per whole cell on a split mesh
+        if u_cell is not None and not result.label_whole:  # each cell moved by its own velocity when tracked
+            result.label_velocity = np.asarray(u_cell)[labelled][:, list(mesh.plane_axes[:mesh.dimension])]
         result.droplets = table
         del found, labelled  # labels and c dV of every cell (16 bytes a cell): not held through the sections
     return contour, measured

@@ -1,0 +1,62 @@
+"""Tracking with a velocity over steps that store no times (audit 14)."""
+
+import warnings
+
+import numpy as np
+
+from phasegauge import measure
+from phasegauge.meshgen import grid_mesh, to_meshio
+
+
+def _moving_disc(folder, *, listing):
+    # a disc of radius 0.08 carried at u = 0.5 along x, 0.05 per output of 0.1 (a third of its diameter):
+    # one drop, one track, no event [the scenario as built]
+    folder.mkdir()
+    mesh = grid_mesh((100, 50), bounds=((0.0, 1.0), (0.0, 0.5)))
+    centre = mesh.cell_centroids
+    u = np.tile([0.5, 0.0, 0.0], (mesh.n_cells, 1))
+    for k in range(5):
+        c = (np.hypot(centre[:, 0] - 0.2 - 0.05 * k, centre[:, 1] - 0.25) < 0.08).astype(float)
+        to_meshio(mesh, cell_data={"alpha": c, "U": u}).write(folder / f"out_{k}.vtu")
+    if listing:
+        (folder / "run.steps").write_text("".join(f"{0.1 * k},out_{k}.vtu\n" for k in range(5)))
+        return folder / "run.steps"
+    return folder
+
+
+def test_a_velocity_over_numbered_steps_is_not_used_to_move_the_drops(tmp_path):
+    # audit 14: the files store no time, so dt = 1 (a step number) and each drop was moved by 0.5, ten
+    # times its motion: every step read as a disappearance and an appearance, and the warning advised
+    # writing output more often
+    with warnings.catch_warnings(record=True) as caught:
+        warnings.simplefilter("always")
+        result = measure(_moving_disc(tmp_path / "numbered", listing=False), "alpha", velocity="U",
+                         analyses=("droplets",))
+    assert result.droplets["track"].nunique() == 1 and len(result.events) == 0
+    assert any("the velocity cannot move the drops between outputs" in str(w.message) for w in caught)
+    # with the steps' times the velocity moves them, and the drop keeps its one track
+    timed = measure(_moving_disc(tmp_path / "timed", listing=True), "alpha", velocity="U", analyses=("droplets",))
+    assert timed.droplets["track"].nunique() == 1 and len(timed.events) == 0
+
+
+def test_a_satellite_that_lags_its_drop_is_a_breakup_with_the_velocity(tmp_path):
+    # audit 14: at pinch-off the tail moves slower than the drop (u = 0.3 there, 0.9 in the drop); each
+    # cell was moved by the drop's mean velocity, so the satellite's old cells landed ten cells ahead of
+    # it and it read as an appearance, no breakup. Each cell moved by its own velocity finds it [the
+    # scenario as built: one drop with a tail and bulb, then the drop and a satellite]
+    folder = tmp_path / "pinch"
+    folder.mkdir()
+    mesh = grid_mesh((200, 100), bounds=((0.0, 1.0), (0.0, 0.5)))
+    x, y = mesh.cell_centroids[:, 0], mesh.cell_centroids[:, 1]
+    u = np.zeros((mesh.n_cells, 3))
+    u[:, 0] = np.where(x > 0.25, 0.9, 0.3)
+    disc = lambda cx: np.hypot(x - cx, y - 0.25) < 0.05  # noqa: E731
+    bulb = lambda cx: np.hypot(x - cx, y - 0.25) < 0.0125  # noqa: E731
+    first = disc(0.30) | bulb(0.20) | ((x > 0.2) & (x < 0.26) & (np.abs(y - 0.25) < 0.005))
+    second = disc(0.39) | bulb(0.23)
+    for k, c in enumerate((first, second)):
+        to_meshio(mesh, cell_data={"alpha": c.astype(float), "U": u}).write(folder / f"p_{k}.vtu")
+    (folder / "run.steps").write_text("0.0,p_0.vtu\n0.1,p_1.vtu\n")
+    result = measure(folder / "run.steps", "alpha", velocity="U", analyses=("droplets",))
+    kinds = result.events["kind"].tolist()
+    assert "breakup" in kinds and "appearance" not in kinds, result.events
