@@ -143,7 +143,8 @@ def _appearances(events, edge: set) -> dict:
 
 
 def _edge_tracks(droplets, bounds=None) -> set:
-    """(step, track) of the drops flagged under-resolved and, with ``bounds``, those touching the domain's box."""
+    """(step, track) of the drops flagged under-resolved and, with ``bounds``, those touching one side of the
+    domain's box (:func:`_touches`)."""
     edge = np.zeros(len(droplets), dtype=bool)
     if bounds is not None:
         edge |= _touches(droplets, np.asarray(bounds, dtype=float))
@@ -153,14 +154,17 @@ def _edge_tracks(droplets, bounds=None) -> set:
 
 
 def _touches(droplets, bounds: np.ndarray) -> np.ndarray:
-    """Whether each droplet's box reaches the domain's box along an axis the domain spans."""
+    """Whether each droplet's box reaches the domain's box on one side of an axis the domain spans (as a
+    drop leaving through an outlet does). A drop reaching both sides of an axis spans the domain there (a
+    drop confined between a channel's walls, as in a microchannel or a slab): not leaving along it."""
     extent = bounds[1] - bounds[0]
     near = 1e-9 * float(np.max(extent)) if np.max(extent) > 0 else 0.0
     touches = np.zeros(len(droplets), dtype=bool)
     for k, axis in enumerate("xyz"):
         if extent[k] > 0 and f"bbox_min_{axis}" in droplets:
-            touches |= droplets[f"bbox_min_{axis}"].to_numpy(dtype=float) <= bounds[0, k] + near
-            touches |= droplets[f"bbox_max_{axis}"].to_numpy(dtype=float) >= bounds[1, k] - near
+            low = droplets[f"bbox_min_{axis}"].to_numpy(dtype=float) <= bounds[0, k] + near
+            high = droplets[f"bbox_max_{axis}"].to_numpy(dtype=float) >= bounds[1, k] - near
+            touches |= low ^ high
     return touches
 
 
