@@ -307,3 +307,31 @@ def test_an_inlet_cell_without_c_at_every_step_leaves_the_rest_of_the_flux(tmp_p
                   analyses=("conservation",))
     assert "phase_volume_drift" not in [f.kind for f in res.findings], [f.text for f in res.findings]
     np.testing.assert_allclose(res.steps["boundary_phase_outflow_unknown"], 0.025, rtol=1e-12)
+
+
+def test_an_inlet_cell_without_a_velocity_is_bounded(tmp_path):
+    # review 52: one inlet cell with NaN in c and u at every step was read as a wall (its flux silently 0)
+    # and a conserving channel read "+7.8 % gained"; the corner cell's two boundary faces (inlet and wall:
+    # which one is open is not known) are bounded by their length (2 x 0.05) times the largest |u.n| of
+    # the open faces (1) [analytic], so the run is at most not judged
+    import warnings
+
+    from phasegauge import measure
+    from phasegauge.errors import NonFiniteWarning
+    from conftest import write_listing
+
+    mesh = grid_mesh((20, 10), bounds=((0.0, 1.0), (0.0, 0.5)))
+    x = mesh.cell_centroids[:, 0]
+    inlet = np.flatnonzero(x < 0.05)[:1]
+    steps = []
+    for k, t in enumerate((0.0, 0.1, 0.2, 0.3, 0.5)):
+        u = np.tile([1.0, 0.0, 0.0], (mesh.n_cells, 1))
+        c = (x < 0.3 + t).astype(float)
+        u[inlet], c[inlet] = np.nan, np.nan
+        steps.append((t, f"v_{k}.vtu", mesh, {"alpha": c, "U": u}))
+    with warnings.catch_warnings(record=True) as caught:
+        warnings.simplefilter("always")
+        res = measure(write_listing(str(tmp_path), steps), "alpha", velocity="U", analyses=("conservation",))
+    assert any(issubclass(w.category, NonFiniteWarning) and "velocity field 'U'" in str(w.message) for w in caught)
+    np.testing.assert_allclose(res.steps["boundary_phase_outflow_unknown"], 2 * 0.05, rtol=1e-12)
+    assert "phase_volume_drift" not in [f.kind for f in res.findings], [f.text for f in res.findings]

@@ -133,3 +133,20 @@ def test_a_channel_that_fills_is_judged_against_its_largest_phase_volume():
     (drift, _) = drift_findings(steps, MeasureOptions(field="c"), True, 0.0)
     assert drift.kind == "phase_volume_drift" and "the largest phase volume, 0.1475" in drift.text
     assert drift.figures["signed_drift_closed"] == pytest.approx(-0.003 / volume.max(), rel=1e-9)
+
+
+def test_an_open_domain_over_numbered_steps_is_not_judged(tmp_path):
+    # review 52: files that store no time are numbered 0, 1, 2 ..., and the boundary flow (a rate per unit
+    # time) was integrated over step numbers: a conserving channel read "-589 % lost"
+    from phasegauge.meshgen import to_meshio
+
+    mesh = grid_mesh((2 * N, N), ((0, 2), (0, 1)), kind="quad")
+    u = np.tile([U, 0.0, 0.0], (mesh.n_cells, 1))
+    for k in range(5):  # the front carried one cell per output: conserved [elementary kinematics]
+        c = (mesh.cell_centroids[:, 0] < 0.5 + k * H).astype(float)
+        to_meshio(mesh, cell_data={"c": c, "U": u}).write(tmp_path / f"s_{k}.vtu")
+    result = measure(tmp_path, "c", velocity="U", analyses=("conservation",))
+    found = _kinds(result)
+    assert "phase_volume_drift" not in found
+    assert "the steps store no times" in found["phase_volume_not_judged"].text
+    assert "phase_volume_drift_closed" not in result.steps

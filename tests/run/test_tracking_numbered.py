@@ -76,3 +76,43 @@ def test_a_confined_drop_that_jumps_between_outputs_is_warned_of(tmp_path):
     (folder / "run.steps").write_text("".join(f"{0.1 * k},g_{k}.vtu\n" for k in range(4)))
     result = measure(folder / "run.steps", "alpha", analyses=("droplets",))
     assert "tracking_unreliable" in [f.kind for f in result.findings], result.events
+
+
+def test_drops_side_by_side_in_shear_keep_their_tracks(tmp_path):
+    # review 52: with every cell moved by its own velocity, two drops at rest on the centre line of a
+    # shear flow u_x = y, 0.01 apart, written every 2 strain units, smeared onto each other: a made-up
+    # complex event. They do not move [the scenario as built: identical at both steps]: two tracks, no event
+    folder = tmp_path / "shear"
+    folder.mkdir()
+    mesh = grid_mesh((200, 100), bounds=((0.0, 2.0), (-0.5, 0.5)))
+    x, y = mesh.cell_centroids[:, 0], mesh.cell_centroids[:, 1]
+    u = np.zeros((mesh.n_cells, 3))
+    u[:, 0] = y
+    c = ((np.hypot(x - 0.895, y) < 0.1) | (np.hypot(x - 1.105, y) < 0.1)).astype(float)
+    for k in range(2):
+        to_meshio(mesh, cell_data={"alpha": c, "U": u}).write(folder / f"s_{k}.vtu")
+    (folder / "run.steps").write_text("0.0,s_0.vtu\n2.0,s_1.vtu\n")
+    result = measure(folder / "run.steps", "alpha", velocity="U", analyses=("droplets",))
+    assert result.droplets["track"].nunique() == 2 and len(result.events) == 0, result.events
+
+
+def test_the_python_tracker_takes_the_cells_velocities(tmp_path):
+    # review 52: the Python API moved cells by the drop's mean alone, so the lagging satellite was still an
+    # appearance there; add(cell_velocity=) finds the breakup as the run does
+    from phasegauge.analysis.droplets import label_droplets
+    from phasegauge.analysis.tracking import DropletTracker
+
+    mesh = grid_mesh((200, 100), bounds=((0.0, 1.0), (0.0, 0.5)))
+    x, y = mesh.cell_centroids[:, 0], mesh.cell_centroids[:, 1]
+    u = np.zeros((mesh.n_cells, 3))
+    u[:, 0] = np.where(x > 0.25, 0.9, 0.3)
+    disc = lambda cx: np.hypot(x - cx, y - 0.25) < 0.05  # noqa: E731
+    bulb = lambda cx: np.hypot(x - cx, y - 0.25) < 0.0125  # noqa: E731
+    steps = [disc(0.30) | bulb(0.20) | ((x > 0.2) & (x < 0.26) & (np.abs(y - 0.25) < 0.005)),
+             disc(0.39) | bulb(0.23)]
+    tracker = DropletTracker()
+    for k, c in enumerate(steps):
+        found = label_droplets(mesh, c.astype(float), velocity=u)
+        tracker.add(k, 0.1 * k, mesh, found, cell_velocity=u)
+    _, events = tracker.result()
+    assert "breakup" in events["kind"].tolist()

@@ -207,7 +207,9 @@ def open_boundary_flux(mesh: Mesh, velocity, c=None, *, tolerance: float = OPEN_
           phase volume leaving per unit time (with ``c``); on an open face
           where c is not finite, c is taken as 0.5, and
         - ``boundary_phase_outflow_unknown`` (only where there are such faces):
-          half the flow through them, the most that may be off.
+          half the flow through them, the most that may be off; plus, for
+          boundary faces whose velocity is not finite (read as closed), their
+          area times the largest |u.n| of the open faces.
 
     Notes
     -----
@@ -266,7 +268,12 @@ def open_boundary_flux(mesh: Mesh, velocity, c=None, *, tolerance: float = OPEN_
         un = np.repeat(un_cell[:, None], k, axis=1)
     if speed <= 0:
         is_open[:] = False
-    is_open &= ~_on_periodic_planes(mesh, centre, periodic)
+    wrapped = _on_periodic_planes(mesh, centre, periodic)
+    is_open &= ~wrapped
+    # a boundary face whose velocity is not finite is read as closed; what may cross it is bounded below
+    # (its area times the largest |u.n| of the open faces, c in [0, 1])
+    blind = ~wrapped & (~np.isfinite(u[owners]).all(axis=1) if u_location == "cell"
+                        else ~np.isfinite(u[pieces]).all(axis=(1, 2)))
     # a face is open as a whole: any of its pieces open opens the face
     face_open = np.zeros(int(face.max(initial=-1)) + 1, dtype=bool)
     np.logical_or.at(face_open, face, is_open)
@@ -285,6 +292,10 @@ def open_boundary_flux(mesh: Mesh, velocity, c=None, *, tolerance: float = OPEN_
         cv = np.where(np.isfinite(cv), cv, 0.5)
         product = (np.einsum("nk,nk->n", cv, un) + cv.sum(axis=1) * un.sum(axis=1)) / (k * (k + 1))
         out["boundary_phase_outflow"] = float(dot(weight, product))
-        if unknown.any():
-            out["boundary_phase_outflow_unknown"] = 0.5 * float(dot(measure[unknown], np.abs(un[unknown].mean(axis=1))))
+        bound = 0.5 * float(dot(measure[unknown], np.abs(un[unknown].mean(axis=1)))) if unknown.any() else 0.0
+        if blind.any():
+            normal = np.abs(un.mean(axis=1))[is_open]
+            bound += float(measure[blind].sum()) * (float(normal.max()) if normal.size else speed)
+        if bound > 0:
+            out["boundary_phase_outflow_unknown"] = bound
     return out

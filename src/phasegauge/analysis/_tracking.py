@@ -117,7 +117,7 @@ class DropletTracker:
 
     # ------------------------------------------------------------------ feeding
     def add(self, step, time, mesh: Mesh, labels, table=None, *, velocity_known=None, weights=None,
-            whole_cells=None):
+            whole_cells=None, cell_velocity=None):
         """Add the next step.
 
         Parameters
@@ -140,6 +140,10 @@ class DropletTracker:
         whole_cells : bool, optional
             ``labels`` and ``weights`` are numbered per whole cell of a split mesh
             (:attr:`Mesh.cell_parents`). Default: as the :class:`DropletLabels` says, else False.
+        cell_velocity : ndarray of shape (n_cells, 3) or (n_cells, dimension), optional
+            The velocity on the cells (shaped as ``labels``): drops of the next step that overlap
+            nothing when the cells are moved by their drop's mean velocity are looked for with each
+            cell moved by its own (:meth:`add_cells`); without it, by the mean alone.
 
         Returns
         -------
@@ -168,8 +172,13 @@ class DropletTracker:
             weights = whole_cells_of(mesh).cell_measures if whole_cells else mesh.cell_measures
         weights = np.asarray(weights, dtype=np.float64)
         core = np.flatnonzero(labels >= 0)
+        own = None
+        if cell_velocity is not None:
+            own = np.asarray(cell_velocity, dtype=np.float64)[core]
+            if own.ndim == 2 and own.shape[1] == 3 and mesh.dimension == 2:
+                own = own[:, list(mesh.plane_axes[:2])]
         return self.add_cells(step, time, mesh, table, core, labels[core], weights[core],
-                              velocity_known=velocity_known, whole_cells=whole_cells)
+                              velocity_known=velocity_known, whole_cells=whole_cells, cell_velocity=own)
 
     def add_cells(self, step, time, mesh, table, cells, labels, weights, *, velocity_known=None,
                   whole_cells: bool = False, cell_velocity=None):
@@ -200,10 +209,11 @@ class DropletTracker:
             ``cells`` are whole cells of a split mesh (as :func:`label_droplets` labels one);
             False: cells of the mesh as analysed (the pieces of a split mesh).
         cell_velocity : ndarray of shape (k, dimension), optional
-            The velocity of each labelled cell (in the mesh's plane axes in 2D): with a known
-            velocity, each cell is moved by its own before the overlap, so a satellite that lags
-            its drop at pinch-off lands on itself (moved by the drop's mean velocity it missed,
-            and read as an appearance); without it, by its drop's mean velocity.
+            The velocity of each labelled cell (in the mesh's plane axes in 2D). With a known
+            velocity the cells are first moved by their drop's mean velocity; the drops of the next
+            step that overlap nothing so are then looked for with each cell moved by its own, so a
+            satellite that lags its drop at pinch-off lands on itself (a breakup, not an
+            appearance), while drops side by side in a shear flow are not smeared onto each other.
 
         Returns
         -------
@@ -265,6 +275,41 @@ class DropletTracker:
         self._count += 1
         return tracks
 
+    def _overlaps(self, prev: dict, cur: dict, shift, only=None) -> tuple:
+        """The (previous, current) drop pairs whose overlap, the previous cores' cells moved by ``shift``
+        (per labelled cell), is at least ``min_overlap`` of the smaller core volume; with ``only``, pairs
+        with those current drops alone."""
+        n_prev, n_cur = prev["n"], cur["n"]
+        lo, hi = cur["box"]
+        mesh_p, mesh_c = prev["mesh"], cur["mesh"]
+        moved = bool(np.any(shift != 0))
+        same_mesh = mesh_p is mesh_c or (mesh_p.n_cells == mesh_c.n_cells
+                                         and mesh_p.signature == mesh_c.signature)
+        if same_mesh and not moved and prev["whole"] == cur["whole"]:  # cells in the same numbering
+            landed = _at_cells(cur["cells"], cur["labels"], prev["cells"])
+        else:
+            parents = None if prev["whole"] else mesh_p.cell_parents
+            points = mesh_p.cell_centroids[prev["cells"] if parents is None else parents[prev["cells"]]]
+            points = points + shift
+            for ax in cur["axes"]:
+                period = hi[ax] - lo[ax]
+                points[:, ax] = lo[ax] + np.mod(points[:, ax] - lo[ax], period)
+            found = self._locate(mesh_c, points)
+            if mesh_c.cell_parents is None or cur["whole"]:  # found: cells in the labels' own numbering
+                landed = _at_cells(cur["cells"], cur["labels"], found)
+            else:
+                landed = _whole_labels(cur, mesh_c)[found]
+        hit = landed >= 0
+        if only is not None:
+            hit &= np.isin(landed, only)
+        overlap = sparse.coo_matrix((prev["weights"][hit], (prev["labels"][hit], landed[hit])),
+                                    shape=(n_prev, n_cur)).tocsr()
+        overlap.sum_duplicates()
+        ov = overlap.tocoo()
+        smaller = np.minimum(prev["core_volume"][ov.row], cur["core_volume"][ov.col])
+        keep = ov.data >= self.min_overlap * smaller
+        return ov.row[keep], ov.col[keep]
+
     def _locate(self, mesh: MeshOutline, points: np.ndarray) -> np.ndarray:
         """Cell of ``mesh`` whose centroid is nearest to each point (a whole cell of a split mesh)."""
         if self._tree[0] is not mesh:
@@ -285,34 +330,15 @@ class DropletTracker:
         lo, hi = cur["box"]
         axes = cur["axes"]
         # ------------------------------------------------ overlap of moved previous cores
-        mesh_p, mesh_c = prev["mesh"], cur["mesh"]
+        # each drop's cells moved by its mean velocity; then, for the drops of this step that overlap
+        # nothing so, each cell by its own (a satellite lagging its drop at pinch-off lands on itself;
+        # moving every cell by its own first would smear a drop in shear onto its neighbour)
+        link_p, link_c = self._overlaps(prev, cur, prev["velocity"][prev["labels"]] * dt)
         own = prev.get("cell_velocity")
-        shift = prev["velocity"][prev["labels"]] * dt if own is None else own * dt  # per labelled cell
-        moved = bool(np.any(shift != 0))
-        same_mesh = mesh_p is mesh_c or (mesh_p.n_cells == mesh_c.n_cells
-                                         and mesh_p.signature == mesh_c.signature)
-        if same_mesh and not moved and prev["whole"] == cur["whole"]:  # cells in the same numbering
-            landed = _at_cells(cur["cells"], cur["labels"], prev["cells"])
-        else:
-            parents = None if prev["whole"] else mesh_p.cell_parents
-            points = mesh_p.cell_centroids[prev["cells"] if parents is None else parents[prev["cells"]]]
-            points = points + shift
-            for ax in axes:
-                period = hi[ax] - lo[ax]
-                points[:, ax] = lo[ax] + np.mod(points[:, ax] - lo[ax], period)
-            found = self._locate(mesh_c, points)
-            if mesh_c.cell_parents is None or cur["whole"]:  # found: cells in the labels' own numbering
-                landed = _at_cells(cur["cells"], cur["labels"], found)
-            else:
-                landed = _whole_labels(cur, mesh_c)[found]
-        hit = landed >= 0
-        overlap = sparse.coo_matrix((prev["weights"][hit], (prev["labels"][hit], landed[hit])),
-                                    shape=(n_prev, n_cur)).tocsr()
-        overlap.sum_duplicates()
-        ov = overlap.tocoo()
-        smaller = np.minimum(prev["core_volume"][ov.row], cur["core_volume"][ov.col])
-        keep = ov.data >= self.min_overlap * smaller
-        link_p, link_c = ov.row[keep], ov.col[keep]
+        free_c = np.setdiff1d(np.arange(n_cur), link_c)
+        if own is not None and free_c.size and dt != 0:
+            more_p, more_c = self._overlaps(prev, cur, own * dt, only=free_c)
+            link_p, link_c = np.concatenate([link_p, more_p]), np.concatenate([link_c, more_c])
 
         # ------------------------------------------------ gate for droplets overlapping nothing
         free_p = np.setdiff1d(np.arange(n_prev), link_p)

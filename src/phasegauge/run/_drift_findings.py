@@ -41,7 +41,8 @@ def _left_out_share(steps, first: float) -> tuple[np.ndarray, np.ndarray]:
     return below, above
 
 
-def drift_findings(steps, options, open_domain: bool, floor_volume: float, *, on_points: bool = False) -> list:
+def drift_findings(steps, options, open_domain: bool, floor_volume: float, *, on_points: bool = False,
+                   numbered: bool = False) -> list:
     """The phase-volume findings, judged against ``options.drift_tolerance`` (relative) and never
     below ``floor_volume`` (round-off, in volume units).
 
@@ -52,12 +53,20 @@ def drift_findings(steps, options, open_domain: bool, floor_volume: float, *, on
     accounts for is a note. Either relative to the first step's phase volume, or, where that is 0 (a
     channel that starts empty, a drop that appears) or, in an open domain, smaller than a later step's,
     to the largest phase volume of the run. ``on_points``: the velocity was on
-    points at some step (the open domain's warning says that walls can then read open).
+    points at some step (the open domain's warning says that walls can then read open). ``numbered``: the
+    steps store no times (0, 1, 2 ...): an open domain's flow, a rate per unit time, cannot be integrated
+    over them, so its drift is not judged (a note naming the listing that would give the times).
     """
     from .assemble import Finding
 
     if "phase_volume_drift" not in steps or not len(steps):
         return []
+    if open_domain and numbered:
+        return [Finding("phase_volume_not_judged", "note",
+                        "phase volume through the open boundaries not judged: the steps store no times (numbered "
+                        "0, 1, 2 ...), so the flow through the boundaries, a rate per unit time, cannot be "
+                        "integrated between them; give a 'time,path' listing of the steps' times", {}),
+                Finding("open_boundary", "note", _OPEN)]
     change = steps["phase_volume_drift"].to_numpy(dtype=float)  # relative to the first step's phase volume
     volume = steps["phase_volume"].to_numpy(dtype=float) if "phase_volume" in steps else None
     reference = abs(float(volume[0])) if volume is not None else 1.0
@@ -150,7 +159,7 @@ def _open_findings(steps, change, reference, tolerance, against, Finding, on_poi
             np.nan_to_num(steps["boundary_phase_outflow_unknown"].to_numpy(dtype=float)).any())
         text = (f"phase volume through the open boundaries not judged: after adding back what crossed them up to "
                 f"{100 * worst_left:.3g} % is left (tolerance {100 * tolerance:.3g} % of {against}), no more than "
-                + ("the flow through open faces where c is not finite (taken at 0.5) and " if unknown else "")
+                + ("the flow through boundary faces where c or the velocity is not finite and " if unknown else "")
                 + "integrating the boundary flow between outputs may miss (the rate changes too much from one "
                 "output to the next); outputs closer in time would tell")
         return [Finding("phase_volume_not_judged", "note", text, figures), Finding("open_boundary", "note", _OPEN)]

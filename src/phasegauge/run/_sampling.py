@@ -14,7 +14,7 @@ import warnings
 
 import numpy as np
 
-from ..errors import MeshWarning, OptionError
+from ..errors import MeshWarning, OptionError, PhasegaugeWarning
 
 __all__ = ["normalize_probes", "normalize_lines", "normalize_measured", "sample_layout", "sample_step",
            "sample_tables", "PROBE_COLUMNS", "LINE_COLUMNS"]
@@ -263,3 +263,34 @@ def sample_tables(results, options) -> tuple:
     if options.measured:
         measured = (times, values[:, parts["measured"], 0][:, parts["measured_index"]], steps)
     return probes, lines, measured
+
+
+def run_sample_tables(done, options):
+    """probes.csv, lines.csv, validation.csv and its summary (None where the run has none), and warning
+    records: measured times outside the steps' times (their rows empty: other units?), and measured times
+    left out against steps numbered by their index (measure refuses those before reading; a guard)."""
+    probes, lines, measured = sample_tables(done, options)
+    if measured is None:
+        return probes, lines, None, None, []
+    from ..analysis.probes import validation_summary, validation_table
+
+    times, simulated, steps = measured
+    rows = tuple((x, y, 0.0 if np.isnan(z) else z, *rest) for x, y, z, *rest in options.measured)  # z not given: 0
+    notes = []
+    timed = np.array([np.isfinite(entry[4]) for entry in rows])
+    if timed.any() and any(getattr(r, "time_origin", "") == "index" for r in done):
+        rows = tuple(entry for entry, t in zip(rows, timed) if not t)
+        simulated = simulated[:, ~timed]
+        notes.append((PhasegaugeWarning, f"{int(timed.sum())} measured value(s) with times left out: the steps store "
+                      "no times (numbered 0, 1, 2 ...); give a 'time,path' listing of the steps", ""))
+    elif timed.any():
+        t = np.array([entry[4] for entry in rows])[timed]
+        scale = 1e-12 * max(1.0, float(np.abs(times).max()))
+        outside = (t < times.min() - scale) | (t > times.max() + scale)
+        if outside.any():
+            notes.append((PhasegaugeWarning, f"{int(outside.sum())} of {t.size} measured value(s) with times lie "
+                          f"outside the steps' times ({times.min():.6g} to {times.max():.6g}; measured "
+                          f"{t[outside].min():.6g} to {t[outside].max():.6g}): their simulated values are empty "
+                          "(times in other units, or steps left out?)", ""))
+    table = validation_table(rows, times, simulated, steps=steps)
+    return probes, lines, table, validation_summary(table), notes

@@ -20,7 +20,7 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
-from ..errors import (AnalysisError, InputError, PhasegaugeError, PhasegaugeWarning, SeriesError, SeriesWarning,
+from ..errors import (AnalysisError, InputError, PhasegaugeError, SeriesError, SeriesWarning,
                       SkippedStepWarning, collapse_warnings)
 from ._boundary_findings import boundary_reach_finding, resolution_finding
 from ._drift_findings import drift_findings
@@ -331,14 +331,20 @@ def assemble(series, results: list, options, *, notes=(), feed: TrackingFeed | N
                 if r.error is not None else (SkippedStepWarning, f"step skipped: {r.skipped}", "")
                 for r in results if r.skipped is not None]
     records += [rec for r in done for rec in r.warning_records]
-    probes, lines, validation, validation_summary, sample_notes = _sample_tables(done, options)
+    from ._sampling import run_sample_tables
+
+    probes, lines, validation, validation_summary, sample_notes = run_sample_tables(done, options)
     records += sample_notes
     summary = collapse_warnings(records)
     for category, text in summary:
         warnings.warn(category(text), stacklevel=2)
     steps = pd.DataFrame([r.metrics for r in done])
+    # steps numbered 0, 1, 2 ... (no times stored): a rate per unit time is not integrated over them
+    numbered = any(getattr(r, "time_origin", "") == "index" for r in done)
     if "phase_volume" in steps:
         steps = conservation.drift_columns(steps)
+        if numbered:
+            steps = steps.drop(columns=["phase_volume_outflow", "phase_volume_drift_closed"], errors="ignore")
     first = [c for c in STEP_COLUMNS if c in steps]
     steps = steps[first + [c for c in steps.columns if c not in first]]
     droplets = pd.DataFrame()
@@ -364,10 +370,10 @@ def assemble(series, results: list, options, *, notes=(), feed: TrackingFeed | N
     audit = level_set_audit(audit) if options.level_set and audit else audit
     # done is never empty here (no step analysed raised above; the first step is never skipped after)
     found = findings(steps, droplets, audit, options, skipped, dimension=done[0].dimension,
-                     on_points=any(getattr(r, "velocity_location", None) == "point" for r in done))
+                     on_points=any(getattr(r, "velocity_location", None) == "point" for r in done), numbered=numbered)
     found += mixture_findings(steps, options) + level_set_findings(steps)
     found += tracking_findings(droplets, events, options, bounds=done[0].outline.bounds, steps=steps,
-                               numbered=any(getattr(r, "time_origin", "") == "index" for r in done)) + [
+                               numbered=numbered) + [
         Finding("warning", "warning", text, {"category": category.__name__})
         for category, text in summary if not issubclass(category, SkippedStepWarning)]
     mesh = None
@@ -381,39 +387,6 @@ def assemble(series, results: list, options, *, notes=(), feed: TrackingFeed | N
                          mesh=mesh, warnings=[text for _, text in summary], findings=found, probes=probes,
                          lines=lines, validation=validation, validation_summary=validation_summary,
                          phase_diagram=mixture_report_arrays(steps, options))
-
-
-def _sample_tables(done, options):
-    """probes.csv, lines.csv, validation.csv and its summary (None where the run has none), and warning
-    records: measured times outside the steps' times (their rows empty: other units?), and measured times
-    left out against steps numbered by their index (measure refuses those before reading; a guard)."""
-    from ._sampling import sample_tables
-
-    probes, lines, measured = sample_tables(done, options)
-    if measured is None:
-        return probes, lines, None, None, []
-    from ..analysis.probes import validation_summary, validation_table
-
-    times, simulated, steps = measured
-    rows = tuple((x, y, 0.0 if np.isnan(z) else z, *rest) for x, y, z, *rest in options.measured)  # z not given: 0
-    notes = []
-    timed = np.array([np.isfinite(entry[4]) for entry in rows])
-    if timed.any() and any(getattr(r, "time_origin", "") == "index" for r in done):
-        rows = tuple(entry for entry, t in zip(rows, timed) if not t)
-        simulated = simulated[:, ~timed]
-        notes.append((PhasegaugeWarning, f"{int(timed.sum())} measured value(s) with times left out: the steps store "
-                      "no times (numbered 0, 1, 2 ...); give a 'time,path' listing of the steps", ""))
-    elif timed.any():
-        t = np.array([entry[4] for entry in rows])[timed]
-        scale = 1e-12 * max(1.0, float(np.abs(times).max()))
-        outside = (t < times.min() - scale) | (t > times.max() + scale)
-        if outside.any():
-            notes.append((PhasegaugeWarning, f"{int(outside.sum())} of {t.size} measured value(s) with times lie "
-                          f"outside the steps' times ({times.min():.6g} to {times.max():.6g}; measured "
-                          f"{t[outside].min():.6g} to {t[outside].max():.6g}): their simulated values are empty "
-                          "(times in other units, or steps left out?)", ""))
-    table = validation_table(rows, times, simulated, steps=steps)
-    return probes, lines, table, validation_summary(table), notes
 
 
 #: overshoot and drift below this share of the domain volume are round-off (c carried in float64
@@ -430,13 +403,14 @@ def _worst(steps, column, how=np.nanmax) -> float:
 
 
 def findings(steps, droplets, audit: dict, options, skipped: list, *, dimension: int | None = None,
-             on_points: bool = False) -> list:
+             on_points: bool = False, numbered: bool = False) -> list:
     """The findings of the tables (widening interface, drift, overshoot, resolution, skipped steps).
 
     ``dimension`` is the dimension the steps were measured in (2 or 3; a 2D mesh in 3D space and a
     mesh one cell thick measured per unit depth are 2): the Gibbs-Thomson shift of the bulk
     plateaus' note needs it (None: no expected shift). ``on_points``: a step's boundary flux took the
-    velocity on points (an open domain's drift finding then says what that can do).
+    velocity on points (an open domain's drift finding then says what that can do). ``numbered``: the
+    steps store no times, so an open domain's drift is not judged (its flow is a rate per unit time).
 
     Tolerances: overshoot above ``ROUNDOFF_VOLUME`` (1e-9) x the domain volume; drift (in an open
     domain, what the boundary flow does not account for: :func:`._drift_findings.drift_findings`) above
@@ -460,7 +434,8 @@ def findings(steps, droplets, audit: dict, options, skipped: list, *, dimension:
         found.append(Finding("diffusivity_per_step", "warning", audit["note"], {}))
     open_domain = "open_boundary" in steps and bool(steps["open_boundary"].astype(bool).any())
     domain = _worst(steps, "domain_volume")
-    found += drift_findings(steps, options, open_domain, ROUNDOFF_VOLUME * domain, on_points=on_points)
+    found += drift_findings(steps, options, open_domain, ROUNDOFF_VOLUME * domain, on_points=on_points,
+                            numbered=numbered)
     if "overshoot_volume" in steps:
         worst = _worst(steps, "overshoot_volume")
         tolerance = ROUNDOFF_VOLUME * domain

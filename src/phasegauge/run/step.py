@@ -18,7 +18,7 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
-from ..errors import (AnalysisError, FieldNotFoundError, InputError, InputFileNotFound, MeshWarning,
+from ..errors import (AnalysisError, FieldNotFoundError, InputError, InputFileNotFound, MeshWarning, NonFiniteWarning,
                       PhasegaugeError, PhasegaugeWarning, SeriesError, UnsupportedMeshError, short_text)
 from ..model.axes import AXIS_INDEX
 from ..model.fields import vector_field
@@ -144,6 +144,11 @@ def step_velocity(step, options):
     values, location = vector_field(step.fields, options.velocity, where=step.info.where,
                                     fix="name the velocity field with --velocity, or leave it out",
                                     plane_axes=tuple(mesh.plane_axes) if mesh.dimension == 2 else (0, 1))
+    bad = int(np.count_nonzero(~np.isfinite(values).all(axis=1)))
+    if bad:
+        warnings.warn(NonFiniteWarning(f"velocity field '{options.velocity}' is not finite at {bad} {location}s: "
+                                       "boundary faces there are read as closed, what may cross them bounded "
+                                       "(boundary_phase_outflow_unknown)", where=step.info.where), stacklevel=2)
     if location == "cell":
         return values, None, location
     return (mesh.point_to_cell(values) if "droplets" in options.analyses else None), values, location
