@@ -180,3 +180,46 @@ def test_times_that_are_step_numbers_give_no_ratio():
     assert "per step" in audit["note"] and audit["verdict"].endswith("(the steps store no times: per step index)")
     timed = diffusion_audit(t, 1e-4 + 2e-5 * t, cells_across=np.full(t.size, 6.0), physical_diffusivity=1e-5)
     assert timed["D_ratio"] == pytest.approx(1.0) and "note" not in timed
+
+
+def test_a_profile_that_relaxes_early_then_stays_is_no_widening():
+    # audit 15: a phase-field drop relaxing from eps 1.2 h to its equilibrium 1.6 h (time scale 0.05), then
+    # constant, read "interface keeps widening" from one line through the transient. Logistic profile:
+    # variance pi^2 eps^2 / 3 [analytic]; the second half of the fit widens at a tiny share of the whole's
+    from phasegauge.analysis.interface import diffusion_audit
+
+    t = np.linspace(0.0, 0.5, 31)
+    eps = 1.6 - 0.4 * np.exp(-t / 0.05)
+    audit = diffusion_audit(t, np.pi ** 2 * eps ** 2 / 3, cells_across=np.full(t.size, 6.0))
+    assert not audit["widening"] and "start-up transient" in audit["verdict"]
+    assert abs(audit["D_num"]) < 0.05 * 0.5 * np.polyfit(t, np.pi ** 2 * eps ** 2 / 3, 1)[0]
+    # a steady diffusion keeps its verdict [Crank 1975: the variance grows by 2 D t]
+    steady = diffusion_audit(t, 1.0 + 2 * 0.4 * t, cells_across=np.full(t.size, 6.0))
+    assert steady["widening"] and steady["D_num"] == pytest.approx(0.4, rel=1e-9)
+
+
+def test_the_slope_of_constant_noisy_widths_is_significant_at_the_nominal_rate():
+    # audit 15: the robust fit's weighted standard error read a flat noisy series significant in 4-6 % of
+    # cases at 95 % two-sided (2.5 % one-sided nominal); scipy's linregress gives 2.5 % [reference library]
+    from scipy import stats
+
+    from phasegauge.analysis.interface import diffusion_audit
+
+    rng = np.random.default_rng(7)
+    t = np.arange(11.0)
+    hits = ols = 0
+    for _ in range(1000):
+        v = 1.0 + 0.01 * rng.standard_normal(t.size)
+        hits += diffusion_audit(t, v, cells_across=np.full(t.size, 6.0))["significant"]
+        fit = stats.linregress(t, v)
+        ols += fit.slope > stats.t.ppf(0.975, t.size - 2) * fit.stderr
+    assert hits <= max(ols, 25) * 1.3 and hits / 1000 < 0.04
+
+
+def test_the_fitted_variance_is_given_at_the_first_fitted_step():
+    # audit 15: a run starting at t = 3 had its line carried back to t = 0: a negative variance
+    from phasegauge.analysis.interface import diffusion_audit
+
+    t = np.linspace(3.0, 5.0, 9)
+    audit = diffusion_audit(t, 8e-4 + 2 * 4e-4 * (t - 3.0), cells_across=np.full(t.size, 6.0))
+    assert audit["variance_0"] == pytest.approx(8e-4, rel=1e-9) and audit["fit_from_time"] == 3.0

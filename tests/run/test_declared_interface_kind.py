@@ -26,13 +26,18 @@ def test_a_declared_kind_decides_the_audit_and_the_measured_one_is_kept():
     t = np.arange(6.0)
     variance = 0.01 + 2 * 0.003 * t  # D = 0.003 [Crank 1975]
     thin = np.full(6, 2.1)  # a volume-of-fluid thickness
-    measured = diffusion_audit(t, variance, cells_across=thin)
+    steady = 0.01 + 2 * 0.0003 * t  # a sharp run's width moving by 14 %: its reconstruction, not smearing
+    measured = diffusion_audit(t, steady, cells_across=thin)
     assert (measured["interface_kind"], measured["interface_kind_measured"]) == ("sharp", "sharp")
     assert np.isnan(measured["D_num"])
+    # a run sharp in median whose width grows by half or more smears (audit 15: a volume-of-fluid run
+    # doubling its width at a steady rate read "no diffusivity inferred"): fitted
+    grown = diffusion_audit(t, variance, cells_across=thin)
+    assert grown["D_num"] == pytest.approx(0.003, rel=1e-9) and "smears" in grown["verdict"]
     declared = diffusion_audit(t, variance, cells_across=thin, declared_kind="diffuse")
     assert (declared["interface_kind"], declared["interface_kind_measured"]) == ("diffuse", "sharp")
     assert declared["D_num"] == pytest.approx(0.003, rel=1e-9) and declared["n_fit"] == 6
-    declared_sharp = diffusion_audit(t, variance, cells_across=np.full(6, 2.5), declared_kind="sharp")
+    declared_sharp = diffusion_audit(t, steady, cells_across=np.full(6, 2.5), declared_kind="sharp")
     assert np.isnan(declared_sharp["D_num"]) and "as declared" in declared_sharp["verdict"]
     # declared sharp but read diffuse: a smeared run, fitted and flagged as one (its diffusion not hidden)
     smeared = diffusion_audit(t, variance, cells_across=np.full(6, 6.0), declared_kind="sharp")

@@ -451,7 +451,13 @@ def findings(steps, droplets, audit: dict, options, skipped: list, *, dimension:
                                   "tolerance": tolerance}))
     found += [f for f in (resolution_finding(steps, audit, kind), boundary_reach_finding(steps, kind)) if f is not None]
     if "width_cell_data_bias" in steps and kind != "sharp":  # a sharp interface is one to two cells by design
-        worst = _worst(steps, "width_cell_data_bias")
+        # over the steps the audit fits, resolved ones (a sharp first step is outside the bias's calibration)
+        fitted = np.ones(len(steps), dtype=bool)
+        if np.isfinite(audit.get("fit_from_time", np.nan)) and "time" in steps:
+            fitted &= steps["time"].to_numpy(dtype=float) >= float(audit["fit_from_time"])
+        if "interface_cells_across" in steps:
+            fitted &= ~(steps["interface_cells_across"].to_numpy(dtype=float) < 3.5)
+        worst = _worst(steps[fitted], "width_cell_data_bias")
         if worst > WIDTH_TOLERANCE:
             found.append(Finding("width_cell_data_bias", "warning",
                                  f"widths on point values rebuilt from cell data read up to {100 * worst:.2g} % high "
