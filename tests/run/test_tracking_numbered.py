@@ -39,13 +39,9 @@ def test_a_velocity_over_numbered_steps_is_not_used_to_move_the_drops(tmp_path):
     assert timed.droplets["track"].nunique() == 1 and len(timed.events) == 0
 
 
-def test_a_satellite_that_lags_its_drop_is_a_breakup_with_the_velocity(tmp_path):
-    # audit 14: at pinch-off the tail moves slower than the drop (u = 0.3 there, 0.9 in the drop); each
-    # cell was moved by the drop's mean velocity, so the satellite's old cells landed ten cells ahead of
-    # it and it read as an appearance, no breakup. Each cell moved by its own velocity finds it [the
-    # scenario as built: one drop with a tail and bulb, then the drop and a satellite]
-    folder = tmp_path / "pinch"
-    folder.mkdir()
+def _pinch_off():
+    """A drop with a tail and bulb moving at 0.9 (the tail region at 0.3), then at t = 0.1 the drop 0.09
+    on and the bulb pinched off as a satellite 0.03 on: the mesh, the cell velocity and the two fields."""
     mesh = grid_mesh((200, 100), bounds=((0.0, 1.0), (0.0, 0.5)))
     x, y = mesh.cell_centroids[:, 0], mesh.cell_centroids[:, 1]
     u = np.zeros((mesh.n_cells, 3))
@@ -53,8 +49,18 @@ def test_a_satellite_that_lags_its_drop_is_a_breakup_with_the_velocity(tmp_path)
     disc = lambda cx: np.hypot(x - cx, y - 0.25) < 0.05  # noqa: E731
     bulb = lambda cx: np.hypot(x - cx, y - 0.25) < 0.0125  # noqa: E731
     first = disc(0.30) | bulb(0.20) | ((x > 0.2) & (x < 0.26) & (np.abs(y - 0.25) < 0.005))
-    second = disc(0.39) | bulb(0.23)
-    for k, c in enumerate((first, second)):
+    return mesh, u, (first, disc(0.39) | bulb(0.23))
+
+
+def test_a_satellite_that_lags_its_drop_is_a_breakup_with_the_velocity(tmp_path):
+    # audit 14: at pinch-off the tail moves slower than the drop (u = 0.3 there, 0.9 in the drop); each
+    # cell was moved by the drop's mean velocity, so the satellite's old cells landed ten cells ahead of
+    # it and it read as an appearance, no breakup. Each cell moved by its own velocity finds it [the
+    # scenario as built: one drop with a tail and bulb, then the drop and a satellite]
+    folder = tmp_path / "pinch"
+    folder.mkdir()
+    mesh, u, steps = _pinch_off()
+    for k, c in enumerate(steps):
         to_meshio(mesh, cell_data={"alpha": c.astype(float), "U": u}).write(folder / f"p_{k}.vtu")
     (folder / "run.steps").write_text("0.0,p_0.vtu\n0.1,p_1.vtu\n")
     result = measure(folder / "run.steps", "alpha", velocity="U", analyses=("droplets",))
@@ -102,14 +108,7 @@ def test_the_python_tracker_takes_the_cells_velocities(tmp_path):
     from phasegauge.analysis.droplets import label_droplets
     from phasegauge.analysis.tracking import DropletTracker
 
-    mesh = grid_mesh((200, 100), bounds=((0.0, 1.0), (0.0, 0.5)))
-    x, y = mesh.cell_centroids[:, 0], mesh.cell_centroids[:, 1]
-    u = np.zeros((mesh.n_cells, 3))
-    u[:, 0] = np.where(x > 0.25, 0.9, 0.3)
-    disc = lambda cx: np.hypot(x - cx, y - 0.25) < 0.05  # noqa: E731
-    bulb = lambda cx: np.hypot(x - cx, y - 0.25) < 0.0125  # noqa: E731
-    steps = [disc(0.30) | bulb(0.20) | ((x > 0.2) & (x < 0.26) & (np.abs(y - 0.25) < 0.005)),
-             disc(0.39) | bulb(0.23)]
+    mesh, u, steps = _pinch_off()
     tracker = DropletTracker()
     for k, c in enumerate(steps):
         found = label_droplets(mesh, c.astype(float), velocity=u)
