@@ -213,7 +213,12 @@ def test_the_slope_of_constant_noisy_widths_is_significant_at_the_nominal_rate()
         hits += diffusion_audit(t, v, cells_across=np.full(t.size, 6.0))["significant"]
         fit = stats.linregress(t, v)
         ols += fit.slope > stats.t.ppf(0.975, t.size - 2) * fit.stderr
-    assert hits <= max(ols, 25) * 1.3 and hits / 1000 < 0.04
+    assert hits <= max(ols, 25) * 1.5 and hits / 1000 < 0.04  # about 3 % against 2.5 % (Huber's covariance)
+    # and one disturbed step (x 1.6) of a steady widening leaves it significant (the robust fit sets it aside)
+    for seed in range(20):
+        v = 1.0 + 0.05 * t + 0.01 * np.random.default_rng(seed).standard_normal(t.size)
+        v[5] *= 1.6
+        assert diffusion_audit(t, v, cells_across=np.full(t.size, 6.0))["significant"]
 
 
 def test_the_fitted_variance_is_given_at_the_first_fitted_step():

@@ -34,9 +34,10 @@ AUDIT_KEYS = ("interface_kind", "interface_kind_measured", "cells_across", "D_nu
 SHARP_CELLS_ACROSS = 3.5
 
 #: a sharp run whose width grows by more than this (first to last sixth of the steps), or that ends diffuse,
-#: with its variance growing linearly (r^2 at least SMEARED_LINEARITY), is smeared (our thresholds)
+#: with its variance growing steadily (the later half's slope at most SMEARED_ACCELERATION times the earlier
+#: half's, after the first step), is smeared (our thresholds)
 SMEARED_GROWTH = 0.5
-SMEARED_LINEARITY = 0.9
+SMEARED_ACCELERATION = 3.0
 
 #: a widening counts as ongoing when the second half of the fitted steps widens at this share of the whole
 #: fit's rate at least (our threshold)
@@ -132,12 +133,23 @@ def _robust_fit(t, v):
     sigma2 = float((w * r ** 2).sum()) / (n - 2)
     stderr = float(np.sqrt(sigma2 / sxx))
     # the last pass's weighted standard error takes the down-weighting as given, and reads a slope of
-    # constant data significant 4-6 % of the time at 95 % two-sided (2.5 % one-sided nominal); the ordinary
-    # least-squares one is kept when larger (our check: 2000 noisy constant series, 2.5 % as scipy's
-    # linregress gives)
-    _, ols_slope, ols_sxx = _weighted_line(t, v, np.ones(n))
-    ols_r = v - v.mean() - ols_slope * (t - t.mean())
-    stderr = max(stderr, float(np.sqrt(float((ols_r ** 2).sum()) / (n - 2) / ols_sxx)))
+    # constant data significant 4-6 % of the time at 95 % two-sided (2.5 % one-sided nominal); Huber's
+    # own covariance (his proposal 2, as statsmodels' RLM "H1": the psi's spread over its mean slope
+    # squared, with his small-sample factor) is kept when larger
+    scale = 1.4826 * np.median(np.abs(r - np.median(r)))
+    if scale > 0:
+        u = r / scale
+        psi = np.clip(u, -_HUBER, _HUBER)
+        m = float(np.mean(np.abs(u) < _HUBER))
+        if m > 0:
+            k = 1.0 + 2.0 / n * (1.0 - m) / m
+            plain_sxx = float(((t - t.mean()) ** 2).sum())
+            sandwich = k * k * float((psi ** 2).sum()) / (n - 2) / (m * m) * scale * scale / plain_sxx
+            stderr = max(stderr, float(np.sqrt(sandwich)))
+    if n < 6:  # too few steps for the robust spread (5 % false significance at 4): the plain least-squares one
+        _, plain_slope, plain = _weighted_line(t, v, np.ones(n))
+        rest = v - v.mean() - plain_slope * (t - t.mean())
+        stderr = max(stderr, float(np.sqrt(float((rest ** 2).sum()) / (n - 2) / plain)))
     mean_w = (w * v).sum() / w.sum()
     total = float((w * (v - mean_w) ** 2).sum())
     r_squared = 1.0 - float((w * r ** 2).sum()) / total if total > 0 else float("nan")
@@ -301,12 +313,14 @@ def diffusion_audit(times, variances, *, cells_across=None, physical_diffusivity
         # steps after the first, whose step to the scheme's own profile every run takes, at least
         # SMEARED_LINEARITY); filaments thinned below the cells late in a run grow it faster (a reversed
         # vortex's wisps: 0.69), and are the scheme's reconstruction, not a diffusing profile
-        smeared = (tail >= SHARP_CELLS_ACROSS or (np.isfinite(grown) and grown > SMEARED_GROWTH)) and n >= 4
-        if smeared:
-            line = np.polyval(np.polyfit(t[1:], v[1:], 1), t[1:])
-            spread = float(np.var(v[1:]))
-            smeared = spread > 0 and 1.0 - float(np.var(v[1:] - line)) / spread >= SMEARED_LINEARITY
-    if cells is not None and (measured != "sharp" or smeared):
+        smeared = (tail >= SHARP_CELLS_ACROSS or (np.isfinite(grown) and grown > SMEARED_GROWTH)) and n >= 7
+        if smeared:  # growing steadily, not faster and faster (robust slopes of the two halves after step 0)
+            mid = 1 + (n - 1) // 2
+            early, late_rate = _robust_fit(t[1:mid], v[1:mid])[1], _robust_fit(t[mid:], v[mid:])[1]
+            smeared = early > 0 and late_rate <= SMEARED_ACCELERATION * early
+    if smeared:  # from the first step past the scheme's start-up, as its steadiness was judged
+        start = 1
+    elif cells is not None and measured != "sharp":
         resolved = np.flatnonzero(cells[order] >= SHARP_CELLS_ACROSS)
         if resolved.size and n - resolved[0] >= min_steps and np.ptp(t[resolved[0]:]) > 0:
             start = int(resolved[0])
@@ -342,7 +356,8 @@ def diffusion_audit(times, variances, *, cells_across=None, physical_diffusivity
     half = tf.size // 2
     if widening and tf.size - half >= max(int(min_steps), 4) and np.ptp(tf[half:]) > 0:
         late = _robust_fit(tf[half:], vf[half:])
-        if late[1] < LATE_SHARE * slope:
+        late_quantile = float(stdtrit(tf.size - half - 2, 0.5 + 0.5 * float(confidence)))
+        if late[1] + late_quantile * late[2] < LATE_SHARE * slope:  # below the share beyond its own interval
             widening = False
         else:
             late = None
@@ -364,7 +379,7 @@ def diffusion_audit(times, variances, *, cells_across=None, physical_diffusivity
                    "second half's")
         intercept, slope, stderr, r_squared = late
         D = 0.5 * slope
-        significant = bool(slope > quantile * stderr if stderr > 0 else slope > 0)
+        significant = bool(slope > late_quantile * stderr if stderr > 0 else slope > 0)
     elif widening:
         verdict = (f"interface keeps widening: numerical diffusivity {D:.3g} +- {0.5 * stderr:.2g} "
                    f"(width {100 * growth:+.3g} % first to last)")
@@ -374,8 +389,8 @@ def diffusion_audit(times, variances, *, cells_across=None, physical_diffusivity
     if times_are_indices:
         verdict += " (the steps store no times: per step index)"
     if smeared:
-        verdict = (f"sharp interface in median ({median_cells:.2g} cells across), but it smears to {tail:.2g} "
-                   f"cells at the end (width {100 * grown:+.3g} %; fitted from t = {float(tf[0]):g}): {verdict}")
+        verdict = (f"sharp interface in median ({median_cells:.2g} cells across), but it smears steadily to "
+                   f"{tail:.2g} cells at the end (fitted from t = {float(tf[0]):g}, past the first step): {verdict}")
     elif kind == "sharp" and measured == "diffuse":  # declared
         verdict = (f"declared sharp, but the interface is {median_cells:.2g} cells across in median, as a smeared "
                    f"one reads: {verdict}")
