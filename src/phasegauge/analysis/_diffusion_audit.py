@@ -35,9 +35,9 @@ SHARP_CELLS_ACROSS = 3.5
 
 #: a sharp run whose width grows by more than this (first to last sixth of the steps), or that ends diffuse,
 #: with its variance growing steadily (the later half's slope at most SMEARED_ACCELERATION times the earlier
-#: half's, after the first step), is smeared (our thresholds)
+#: half's, after the first step: a quadratic growth gives 3), is smeared (our thresholds)
 SMEARED_GROWTH = 0.5
-SMEARED_ACCELERATION = 3.0
+SMEARED_ACCELERATION = 2.0
 
 #: a widening counts as ongoing when the second half of the fitted steps widens at this share of the whole
 #: fit's rate at least (our threshold)
@@ -357,7 +357,9 @@ def diffusion_audit(times, variances, *, cells_across=None, physical_diffusivity
     if widening and tf.size - half >= max(int(min_steps), 4) and np.ptp(tf[half:]) > 0:
         late = _robust_fit(tf[half:], vf[half:])
         late_quantile = float(stdtrit(tf.size - half - 2, 0.5 + 0.5 * float(confidence)))
-        if late[1] + late_quantile * late[2] < LATE_SHARE * slope:  # below the share beyond its own interval
+        # below the share, and the whole fit's rate beyond the late half's own interval (a steady rate with
+        # noisy widths stays "ongoing"; a profile that settled reads early)
+        if late[1] < LATE_SHARE * slope and late[1] + late_quantile * late[2] < slope:
             widening = False
         else:
             late = None
