@@ -9,6 +9,7 @@ from ..model._centroids import cell_centroids_of
 from ..model._faces import kept_neighbours
 from ..model.fields import field_location, vector_values
 from ..model.mesh import Mesh
+from ._boundary_reach import on_periodic_planes, periodic_columns
 from ._sums import dot
 
 __all__ = ["open_boundary_flux", "OPEN_TOLERANCE"]
@@ -54,27 +55,6 @@ def _face_vectors(mesh: Mesh) -> tuple:
     with np.errstate(invalid="ignore", divide="ignore"):
         unit = normal / np.where(measure > 0, measure, 1.0)[:, None]
     return pieces, owners, unit, measure, face
-
-
-def _on_periodic_planes(mesh: Mesh, centre: np.ndarray, periodic: tuple) -> np.ndarray:
-    """Which boundary pieces (their centres ``centre``, in the mesh's coordinates) lie on the lowest or
-    highest plane of the boundary along a ``periodic`` axis (to 1e-9 of its largest extent, as
-    :func:`._boundary_reach._boundary_tree` leaves them out)."""
-    from ..model.axes import AXIS_INDEX
-
-    on = np.zeros(centre.shape[0], dtype=bool)
-    if not periodic or not centre.shape[0]:
-        return on
-    axes = list(mesh.plane_axes) if mesh.dimension == 2 else [0, 1, 2]
-    lo, hi = centre.min(axis=0), centre.max(axis=0)
-    tolerance = 1e-9 * float(np.max(hi - lo))
-    for name in periodic:
-        if AXIS_INDEX[name] not in axes:
-            continue
-        column = axes.index(AXIS_INDEX[name])
-        along = centre[:, column]
-        on |= (np.abs(along - lo[column]) <= tolerance) | (np.abs(along - hi[column]) <= tolerance)
-    return on
 
 
 def _cycle_quads(X: np.ndarray, quad: np.ndarray) -> np.ndarray:
@@ -268,7 +248,7 @@ def open_boundary_flux(mesh: Mesh, velocity, c=None, *, tolerance: float = OPEN_
         un = np.repeat(un_cell[:, None], k, axis=1)
     if speed <= 0:
         is_open[:] = False
-    wrapped = _on_periodic_planes(mesh, centre, periodic)
+    wrapped = on_periodic_planes(centre, periodic_columns(mesh, periodic))
     is_open &= ~wrapped
     # a boundary face whose velocity is not finite is read as closed; what may cross it is bounded below
     # (its area times the largest |u.n| of the open faces, c in [0, 1])

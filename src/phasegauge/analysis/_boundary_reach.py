@@ -53,6 +53,30 @@ def _boundary_faces(mesh):
     return centre, normal / np.where(length > 0, length, 1.0)[:, None]
 
 
+def periodic_columns(mesh, periodic) -> tuple:
+    """The columns of the mesh's coordinates (its plane axes in 2D) along the ``periodic`` axes named
+    (``'x'``...), sorted; axes the mesh does not span are left out."""
+    from ..model.axes import AXIS_INDEX
+
+    axes = list(mesh.plane_axes) if mesh.dimension == 2 else [0, 1, 2]
+    return tuple(sorted(axes.index(AXIS_INDEX[a]) for a in periodic if AXIS_INDEX[a] in axes))
+
+
+def on_periodic_planes(centre: np.ndarray, columns: tuple) -> np.ndarray:
+    """Which boundary faces (their centres, in the mesh's coordinates) lie on the lowest or highest plane of
+    the boundary along one of ``columns`` (:func:`periodic_columns`), to 1e-9 of its largest extent: no
+    boundary, what leaves through one comes back through the other."""
+    on = np.zeros(centre.shape[0], dtype=bool)
+    if not columns or not centre.shape[0]:
+        return on
+    lo, hi = centre.min(axis=0), centre.max(axis=0)
+    tolerance = 1e-9 * float(np.max(hi - lo))
+    for column in columns:
+        along = centre[:, column]
+        on |= (np.abs(along - lo[column]) <= tolerance) | (np.abs(along - hi[column]) <= tolerance)
+    return on
+
+
 def _boundary_tree(mesh, periodic: tuple):
     """A search tree of the boundary faces' centroids and their unit normals, the faces on the planes of
     ``periodic`` axes (mesh axis numbers) left out: no boundary there. None: no boundary left."""
@@ -62,11 +86,7 @@ def _boundary_tree(mesh, periodic: tuple):
     if faces is None:
         return None
     centre, normal = faces
-    keep = np.ones(centre.shape[0], dtype=bool)
-    lo, hi = centre.min(axis=0), centre.max(axis=0)
-    tolerance = 1e-9 * float(np.max(hi - lo)) if centre.shape[0] else 0.0
-    for axis in periodic:
-        keep &= ~((np.abs(centre[:, axis] - lo[axis]) <= tolerance) | (np.abs(centre[:, axis] - hi[axis]) <= tolerance))
+    keep = ~on_periodic_planes(centre, periodic)
     if not keep.any():
         return None
     return cKDTree(centre[keep]), normal[keep]
@@ -107,13 +127,11 @@ def boundary_share(mesh, centroids: np.ndarray, sizes: np.ndarray, reach: float,
     searches' balls about a cell wide. A seam of hanging faces
     where a mesh is refined is taken for a boundary (its faces are owned by one cell).
     """
-    from ..model.axes import AXIS_INDEX
-
     total = float(np.sum(sizes))
     if sizes.size == 0 or not total > 0 or not np.isfinite(reach) or not reach > 0:
         return float("nan")
     axes = list(mesh.plane_axes) if mesh.dimension == 2 else [0, 1, 2]  # the elements' 3D points, in those axes
-    wrapped = tuple(sorted(axes.index(AXIS_INDEX[a]) for a in periodic if AXIS_INDEX[a] in axes))
+    wrapped = periodic_columns(mesh, periodic)
     found = mesh.memo(("boundary_face_tree", wrapped), lambda: _boundary_tree(mesh, wrapped))
     if found is None:
         return 0.0

@@ -114,11 +114,25 @@ def interface_kind(cells_across) -> tuple[str, float]:
     return ("sharp" if median < SHARP_CELLS_ACROSS else "diffuse"), median
 
 
+def _end_widths(v) -> tuple[float, float]:
+    """The width (sqrt of the median variance) of the first and of the last k steps (k = max(1, n // 6));
+    NaN where that variance is not above 0."""
+    k = max(1, v.size // 6)
+    first, last = float(np.median(v[:k])), float(np.median(v[-k:]))
+    return (float(np.sqrt(first)) if first > 0 else float("nan"), float(np.sqrt(last)) if last > 0 else float("nan"))
+
+
+def _growth(v) -> float:
+    """``width_last / width_first - 1`` of :func:`_end_widths`."""
+    first, last = _end_widths(v)
+    return last / first - 1.0 if first > 0 and np.isfinite(last) else float("nan")
+
+
 def _robust_fit(t, v):
     """Huber IRLS line v = a + b t: (intercept, slope, stderr, r_squared)."""
     n = t.size
     w = np.ones(n)
-    intercept, slope, sxx = _weighted_line(t, v, w)
+    intercept, slope, sxx = plain = _weighted_line(t, v, w)  # the first pass: ordinary least squares
     for _ in range(50):
         r = v - (intercept + slope * t)
         scale = 1.4826 * np.median(np.abs(r - np.median(r)))
@@ -143,13 +157,11 @@ def _robust_fit(t, v):
         m = float(np.mean(np.abs(u) < _HUBER))
         if m > 0:
             k = 1.0 + 2.0 / n * (1.0 - m) / m
-            plain_sxx = float(((t - t.mean()) ** 2).sum())
-            sandwich = k * k * float((psi ** 2).sum()) / (n - 2) / (m * m) * scale * scale / plain_sxx
+            sandwich = k * k * float((psi ** 2).sum()) / (n - 2) / (m * m) * scale * scale / plain[2]
             stderr = max(stderr, float(np.sqrt(sandwich)))
     if n < 6:  # too few steps for the robust spread (5 % false significance at 4): the plain least-squares one
-        _, plain_slope, plain = _weighted_line(t, v, np.ones(n))
-        rest = v - v.mean() - plain_slope * (t - t.mean())
-        stderr = max(stderr, float(np.sqrt(float((rest ** 2).sum()) / (n - 2) / plain)))
+        rest = v - (plain[0] + plain[1] * t)
+        stderr = max(stderr, float(np.sqrt(float((rest ** 2).sum()) / (n - 2) / plain[2])))
     mean_w = (w * v).sum() / w.sum()
     total = float((w * (v - mean_w) ** 2).sum())
     r_squared = 1.0 - float((w * r ** 2).sum()) / total if total > 0 else float("nan")
@@ -299,20 +311,16 @@ def diffusion_audit(times, variances, *, cells_across=None, physical_diffusivity
     order = np.argsort(t, kind="stable")
     t, v = t[order], v[order]
     start = 0
-    # a run sharp in median that ends diffuse (or widens by half) is smeared: fitted from its first
-    # resolved step, as a run that starts sharp and diffuses (a volume-of-fluid run smearing at a steady
-    # rate read "no diffusivity inferred")
+    # a run sharp in median that ends diffuse (or widens by half) and grows steadily is smeared: fitted from
+    # its second step, past the scheme's start-up (a volume-of-fluid run smearing at a steady rate read "no
+    # diffusivity inferred")
     smeared = False
     if kind == "sharp" and measured == "sharp" and cells is not None:
-        kc = max(1, n // 6)
-        ordered_cells = cells[order]
-        tail = float(np.nanmedian(ordered_cells[-kc:]))
-        head = float(np.nanmedian(v[:kc]))
-        grown = np.sqrt(float(np.median(v[-kc:])) / head) - 1.0 if head > 0 else float("nan")
-        # and steadily: the variance of a smearing interface grows linearly in time (r^2 of a line through the
-        # steps after the first, whose step to the scheme's own profile every run takes, at least
-        # SMEARED_LINEARITY); filaments thinned below the cells late in a run grow it faster (a reversed
-        # vortex's wisps: 0.69), and are the scheme's reconstruction, not a diffusing profile
+        tail = float(np.nanmedian(cells[order][-max(1, n // 6):]))
+        grown = _growth(v)
+        # steadily: filaments thinned below the cells late in a run grow the variance faster and faster (a
+        # reversed vortex's wisps: the later half's slope 58 times the earlier's), and are the scheme's
+        # reconstruction, not a diffusing profile
         smeared = (tail >= SHARP_CELLS_ACROSS or (np.isfinite(grown) and grown > SMEARED_GROWTH)) and n >= 7
         if smeared:  # growing steadily, not faster and faster (robust slopes of the two halves after step 0)
             mid = 1 + (n - 1) // 2
@@ -325,11 +333,8 @@ def diffusion_audit(times, variances, *, cells_across=None, physical_diffusivity
         if resolved.size and n - resolved[0] >= min_steps and np.ptp(t[resolved[0]:]) > 0:
             start = int(resolved[0])
     tf, vf = t[start:], v[start:]
-    k = max(1, tf.size // 6)
-    first, last = float(np.median(vf[:k])), float(np.median(vf[-k:]))
-    width_first = float(np.sqrt(first)) if first > 0 else float("nan")
-    width_last = float(np.sqrt(last)) if last > 0 else float("nan")
-    growth = width_last / width_first - 1.0 if width_first > 0 and np.isfinite(width_last) else float("nan")
+    width_first, width_last = _end_widths(vf)
+    growth = _growth(vf)
     common = {"interface_kind": kind, "interface_kind_measured": measured, "cells_across": median_cells,
               "width_first": width_first, "width_last": width_last, "width_growth": growth,
               "fit_from_time": float(tf[0]), "n_fit": int(tf.size), "n_steps": n}

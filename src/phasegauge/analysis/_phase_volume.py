@@ -144,8 +144,9 @@ def volume_drift(phase_volumes) -> tuple[np.ndarray, np.ndarray]:
 
 
 def known_rates(steps: pd.DataFrame) -> np.ndarray:
-    """``boundary_phase_outflow`` per step with a step's NaN (a velocity not finite on an open face)
-    interpolated linearly in time from the steps around it; zeros where no step has one."""
+    """``boundary_phase_outflow`` per step with a step's NaN (a rate not given: :func:`open_boundary_flux`
+    gives none, a table made otherwise may) interpolated linearly in time from the steps around it; zeros
+    where no step has one."""
     rate = steps["boundary_phase_outflow"].to_numpy(dtype=np.float64)
     known = np.isfinite(rate)
     if known.all():

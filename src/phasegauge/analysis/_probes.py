@@ -24,7 +24,7 @@ import numpy as np
 from ..errors import OptionError
 from ..model.mesh import Mesh
 
-__all__ = ["PointSampler", "point_sampler", "sample_points", "line_points"]
+__all__ = ["PointSampler", "point_sampler", "sample_points", "line_points", "plane_needing_z"]
 
 #: a point lies in a simplex when every barycentric weight is at least minus this
 _INSIDE = 1e-9
@@ -83,13 +83,21 @@ def _as_points(points, mesh: Mesh) -> np.ndarray:
         raise OptionError("point coordinates must be finite numbers", fix="check the probe or line file")
     missing = np.isnan(P[:, 2])
     if missing.any():
-        if not (mesh.dimension == 2 and 2 not in tuple(mesh.plane_axes)):
-            plane = "the " + "-".join("xyz"[a] for a in mesh.plane_axes) + " plane" if mesh.dimension == 2 else "3D"
+        plane = plane_needing_z(mesh)
+        if plane is not None:
             raise OptionError(f"{int(missing.sum())} point(s) give no z, but the mesh lies in {plane}: only a mesh in "
                               "the x-y plane takes points without z (as z = 0)", fix="give x, y and z of each point")
         P = P.copy()
         P[missing, 2] = 0.0
     return P
+
+
+def plane_needing_z(mesh: Mesh) -> str | None:
+    """None for a 2D mesh in the x-y plane (z its normal: points without z take z = 0), else where the
+    mesh lies ('the x-z plane', '3D'), which points without z would misplace."""
+    if mesh.dimension == 2 and 2 not in tuple(mesh.plane_axes):
+        return None
+    return "the " + "-".join("xyz"[a] for a in mesh.plane_axes) + " plane" if mesh.dimension == 2 else "3D"
 
 
 def point_sampler(mesh: Mesh, points) -> PointSampler:

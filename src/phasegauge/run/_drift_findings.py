@@ -79,9 +79,9 @@ def drift_findings(steps, options, open_domain: bool, floor_volume: float, *, on
         change = (volume - volume[0]) / reference
         against = f"the largest phase volume, {reference:.4g} (an open domain's grows with its inflow)"
     if not reference > 0:  # none at the first step: the change against the largest phase volume
-        reference = float(np.nanmax(np.abs(volume))) if np.isfinite(volume).any() else 0.0
-        if not reference > 0:
+        if not largest > 0:
             return []
+        reference = largest
         change = (volume - volume[0]) / reference
         against = f"the largest phase volume, {reference:.4g}: the first step holds none"
     tolerance = max(float(options.drift_tolerance), floor_volume / reference if volume is not None else 0.0)

@@ -48,7 +48,7 @@ def _unique_names(names, what):
 
 
 def _z_or_nan(value, what):
-    """A z coordinate: a finite number, or NaN for "not given" (a 2D file's; see :func:`resolve_z`)."""
+    """A z coordinate: a finite number, or NaN for "not given" (a 2D file's; see :func:`check_z`)."""
     try:
         z = float(value)
     except (TypeError, ValueError):
@@ -165,7 +165,8 @@ def sample_step(mesh, indicator, options, *, where: str = ""):
     if not (options.probes or options.lines or options.measured):
         return None
     points, parts = sample_layout(options)
-    sampler = point_sampler(mesh, resolve_z(mesh, points, options, parts))
+    check_z(mesh, points, options, parts)
+    sampler = point_sampler(mesh, points)
     c = sampler(indicator.point)
     if indicator.location == "cell":  # a point in a cell the solver wrote no finite value for has none
         held = np.flatnonzero(sampler.cells >= 0)
@@ -184,22 +185,21 @@ def sample_step(mesh, indicator, options, *, where: str = ""):
     return np.column_stack([value, c])
 
 
-def resolve_z(mesh, points, options, parts) -> np.ndarray:
-    """``points`` with z not given (NaN, a file without z columns) made 0 where the mesh ignores it (a 2D
-    mesh in the x-y plane, z its normal); on any other mesh such points are refused: two columns would be
-    read as x and y where the mesh's plane is x-z or y-z, or sit on z = 0 in a 3D mesh."""
+def check_z(mesh, points, options, parts) -> None:
+    """Refuse points with z not given (NaN, a file without z columns) on a mesh that is not 2D in the x-y
+    plane (:func:`phasegauge.analysis.probes.plane_needing_z`, whose sampler then takes z = 0), naming
+    the probes, lines and measured values: two columns would be read as x and y where the mesh's plane
+    is x-z or y-z, or sit on z = 0 in a 3D mesh."""
+    from ..analysis._probes import plane_needing_z
+
     missing = np.isnan(points[:, 2])
-    if not missing.any():
-        return points
-    if mesh.dimension == 2 and 2 not in tuple(mesh.plane_axes):
-        points = points.copy()
-        points[missing, 2] = 0.0
-        return points
+    plane = plane_needing_z(mesh) if missing.any() else None
+    if plane is None:
+        return
     names = [options.probes[i][0] for i in np.flatnonzero(missing[parts["probes"]])]
     names += [f"line {name}" for name, sl, _ in parts["lines"] if missing[sl].any()]
     if missing[parts["measured"]].any():
         names.append("measured values")
-    plane = "the " + "-".join("xyz"[a] for a in mesh.plane_axes) + " plane" if mesh.dimension == 2 else "3D"
     raise OptionError(f"{', '.join(names[:6])}{' and more' if len(names) > 6 else ''} give no z, but the mesh lies "
                       f"in {plane}: only a mesh in the x-y plane takes a file without z columns (as z = 0)",
                       fix="give the probe, line and measured files x, y and z columns (z0 and z1 for lines)")
@@ -265,10 +265,10 @@ def sample_tables(results, options) -> tuple:
     return probes, lines, measured
 
 
-def run_sample_tables(done, options):
+def run_sample_tables(done, options, numbered: bool = False):
     """probes.csv, lines.csv, validation.csv and its summary (None where the run has none), and warning
     records: measured times outside the steps' times (their rows empty: other units?), and measured times
-    left out against steps numbered by their index (measure refuses those before reading; a guard)."""
+    left out against steps ``numbered`` by their index (measure refuses those before reading; a guard)."""
     probes, lines, measured = sample_tables(done, options)
     if measured is None:
         return probes, lines, None, None, []
@@ -278,7 +278,7 @@ def run_sample_tables(done, options):
     rows = tuple((x, y, 0.0 if np.isnan(z) else z, *rest) for x, y, z, *rest in options.measured)  # z not given: 0
     notes = []
     timed = np.array([np.isfinite(entry[4]) for entry in rows])
-    if timed.any() and any(getattr(r, "time_origin", "") == "index" for r in done):
+    if timed.any() and numbered:
         rows = tuple(entry for entry, t in zip(rows, timed) if not t)
         simulated = simulated[:, ~timed]
         notes.append((PhasegaugeWarning, f"{int(timed.sum())} measured value(s) with times left out: the steps store "

@@ -97,3 +97,15 @@ def chosen_steps(times, *, steps=None, time_from=None, time_to=None, every=1, wh
                           f" numbered from 0{span})", where=where,
                           fix="widen --steps, --time-from or --time-to (see 'phasegauge inspect')")
     return chosen
+
+
+def numbered_steps(series, indices) -> bool:
+    """True when the chosen steps are numbered 0, 1, 2 ... because their files store no time: each
+    takes its time from its step number, and the first chosen file, read whole (not an XDMF file's,
+    whose times the collection holds), stores none beyond its head either."""
+    from ..io._formats import stores_time
+
+    if not all(series.steps[i].time_origin == "index" for i in indices):
+        return False
+    step = series.steps[indices[0]]
+    return step.path.lower().endswith((".xdmf", ".xmf")) or stores_time(step.path) is False

@@ -333,14 +333,15 @@ def assemble(series, results: list, options, *, notes=(), feed: TrackingFeed | N
     records += [rec for r in done for rec in r.warning_records]
     from ._sampling import run_sample_tables
 
-    probes, lines, validation, validation_summary, sample_notes = run_sample_tables(done, options)
+    # steps numbered 0, 1, 2 ... (no times stored, as read): no rate per unit time is integrated over them,
+    # no measured time set against them, no diffusivity ratio taken
+    numbered = any(getattr(r, "time_origin", "") == "index" for r in done)
+    probes, lines, validation, validation_summary, sample_notes = run_sample_tables(done, options, numbered)
     records += sample_notes
     summary = collapse_warnings(records)
     for category, text in summary:
         warnings.warn(category(text), stacklevel=2)
     steps = pd.DataFrame([r.metrics for r in done])
-    # steps numbered 0, 1, 2 ... (no times stored): a rate per unit time is not integrated over them
-    numbered = any(getattr(r, "time_origin", "") == "index" for r in done)
     if "phase_volume" in steps:
         steps = conservation.drift_columns(steps)
         if numbered:
@@ -361,8 +362,7 @@ def assemble(series, results: list, options, *, notes=(), feed: TrackingFeed | N
         audit = diffusion_audit(steps["time"].to_numpy(), steps["interface_variance"].to_numpy(),
                                 cells_across=cells, physical_diffusivity=options.diffusivity,
                                 declared_kind=options.interface_kind,
-                                times_are_indices=any(series.steps[int(i)].time_origin == "index"
-                                                      for i in steps["step"]))
+                                times_are_indices=numbered)
     from ._level_set_run import level_set_audit, level_set_findings
     from ._mixture import mixture_findings
     from ._tracking_findings import tracking_findings

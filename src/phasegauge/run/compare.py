@@ -319,14 +319,13 @@ def _one_time_axis(both, chosen) -> None:
     stores its times: paired by time they would compare unrelated moments. A run's first chosen file is
     read whole first (not an XDMF file's): a time it stores beyond its head is found when it is read."""
     from ..errors import SeriesError
-    from ..io._formats import stores_time
+    from ._selection import numbered_steps
 
     numbered = [all(s.steps[i].time_origin == "index" for i in c) for s, c in zip(both, chosen)]
     if numbered[0] == numbered[1]:
         return
     k = numbered.index(True)
-    step = both[k].steps[chosen[k][0]]
-    if not step.path.lower().endswith((".xdmf", ".xmf")) and stores_time(step.path) is not False:
+    if not numbered_steps(both[k], chosen[k]):
         return  # a time beyond the head, or a file named when its step is measured
     which, flag = ("first", "a") if k == 0 else ("second", "b")
     raise SeriesError(f"the {which} run's files store no times, so its steps are numbered 0, 1, 2 ..., while the "

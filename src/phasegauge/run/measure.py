@@ -422,14 +422,9 @@ def _check_measured_times(series, indices, options) -> None:
     """Refuse measured values with times against steps numbered 0, 1, 2 ... (files that store no time):
     the measured times would be read as step numbers. The first chosen file is read whole first (not an
     XDMF file's): a time it stores beyond its head is found when it is read."""
-    from ..io._formats import stores_time
+    from ._selection import numbered_steps
 
-    if not any(np.isfinite(entry[4]) for entry in options.measured):
-        return
-    if not all(series.steps[i].time_origin == "index" for i in indices):
-        return
-    step = series.steps[indices[0]]
-    if not step.path.lower().endswith((".xdmf", ".xmf")) and stores_time(step.path) is not False:
+    if not any(np.isfinite(entry[4]) for entry in options.measured) or not numbered_steps(series, indices):
         return
     raise SeriesError("the measured values have times, but the steps' files store none, so the steps are numbered "
                       "0, 1, 2 ...: the measured times would be read as step numbers", where=series.path,
