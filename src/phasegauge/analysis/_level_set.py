@@ -13,11 +13,12 @@ from __future__ import annotations
 import numpy as np
 
 from ..model._statistics import weighted_quantile
+from ..model.cells import EDGES
 from ..model.corners import cell_gradient, corner_extremes
 from ..model.mesh import Mesh
 from ._interface_width import METRIC_KEYS
 
-__all__ = ["level_set_widths", "distance_errors", "LEVEL_SET_COLUMNS", "NEAR_CELLS"]
+__all__ = ["level_set_widths", "distance_errors", "near_interface", "LEVEL_SET_COLUMNS", "NEAR_CELLS"]
 
 #: steps.csv columns of a level-set run
 LEVEL_SET_COLUMNS = ("distance_error_median", "distance_error_p90")
@@ -35,13 +36,11 @@ def level_set_widths(size: float, low: float, high: float) -> dict:
 
 def distance_errors(mesh: Mesh, phi_point: np.ndarray) -> dict:
     """``distance_error_median``, ``distance_error_p90``: the volume-weighted median and 90th percentile
-    of | |grad phi| - 1 | over the cells that have a corner within :data:`NEAR_CELLS` of their own sizes
-    (:attr:`Mesh.cell_sizes`) of phi = 0 (the gradient by least squares over each cell's corners: exact for
-    linear phi on simplices). 0 for an exact distance function resolved by the mesh; NaN without such
-    cells."""
+    of | |grad phi| - 1 | over the cells near the interface (:func:`near_interface`; the gradient by
+    least squares over each cell's corners: exact for linear phi on simplices). 0 for an exact distance
+    function resolved by the mesh; NaN without such cells."""
     phi = np.asarray(phi_point, dtype=np.float64)
-    size = mesh.cell_sizes
-    near = np.flatnonzero(corner_extremes(mesh, np.abs(phi)).low <= NEAR_CELLS * size)
+    near = near_interface(mesh, phi)
     if near.size == 0:
         return {"distance_error_median": float("nan"), "distance_error_p90": float("nan")}
     error = np.abs(np.linalg.norm(cell_gradient(mesh, phi, cells=near), axis=1) - 1.0)
@@ -50,3 +49,43 @@ def distance_errors(mesh: Mesh, phi_point: np.ndarray) -> dict:
     median, p90 = (weighted_quantile(error[keep], weights[keep], q) if keep.any() else float("nan")
                    for q in (0.5, 0.9))
     return {"distance_error_median": float(median), "distance_error_p90": float(p90)}
+
+
+def near_interface(mesh: Mesh, phi: np.ndarray, reach: float = NEAR_CELLS) -> np.ndarray:
+    """The cells with a corner within ``reach`` of their own sizes (:attr:`Mesh.cell_sizes`) of
+    phi = 0, increasing cell numbers. The distance is measured on the mesh, not read from phi (a
+    field that is no distance, squeezed or clipped to a narrow band, cannot say itself which cells
+    are near): to the nearest point where phi = 0 on an edge of a cell phi changes sign across
+    (linear along the edge), searched from the corners of the cells within ``ceil(reach) + 1`` rings
+    of shared corners around those cells. On a straight interface the nearest such point lies within
+    half an edge of the nearest point of the interface."""
+    from scipy.spatial import cKDTree
+
+    low, high = corner_extremes(mesh, phi)
+    cut = ((low < 0) & (high >= 0)) | ((low <= 0) & (high > 0))
+    if not cut.any():
+        return np.zeros(0, dtype=np.int64)
+    X = mesh.coordinates
+    crossings = []
+    for block, start, stop in zip(mesh.blocks, mesh.block_offsets[:-1], mesh.block_offsets[1:]):
+        conn = block.connectivity[cut[start:stop]]
+        k = conn.shape[1]
+        edges = EDGES.get(block.cell_type) or tuple((i, (i + 1) % k) for i in range(k))
+        for a, b in edges:
+            pa, pb = phi[conn[:, a]], phi[conn[:, b]]
+            on = (pa * pb <= 0) & (pa != pb)
+            t = (pa[on] / (pa[on] - pb[on]))[:, None]
+            crossings.append(X[conn[on, a]] + t * (X[conn[on, b]] - X[conn[on, a]]))
+    tree = cKDTree(np.concatenate(crossings))
+    chosen = cut
+    for _ in range(int(np.ceil(reach)) + 1):  # the cells that may hold such a corner
+        marked = np.zeros(mesh.n_points, dtype=bool)
+        for block, start, stop in zip(mesh.blocks, mesh.block_offsets[:-1], mesh.block_offsets[1:]):
+            marked[block.connectivity[chosen[start:stop]].ravel()] = True
+        chosen = corner_extremes(mesh, marked.astype(np.float64)).high > 0
+    candidates = np.flatnonzero(chosen)
+    points = np.flatnonzero(marked)
+    distance = np.full(mesh.n_points, np.inf)
+    distance[points] = tree.query(X[points])[0]
+    nearest = corner_extremes(mesh, distance, cells=candidates).low
+    return candidates[nearest <= reach * mesh.cell_sizes[candidates]]
