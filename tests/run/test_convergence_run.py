@@ -169,3 +169,9 @@ def test_diverging_values_are_flagged_and_warned_once(tmp_path):
     assert table.columns[-1] == "divergent"
     manifest = json.loads((tmp_path / "conv" / "manifest.json").read_text())
     assert any("phase_volume" in w and "move apart" in w for w in manifest["warnings"])
+    from matplotlib.text import Text
+
+    from phasegauge.report._convergence_report import plot_convergence
+
+    words = [t.get_text() for t in plot_convergence(result.table).findobj(Text)]
+    assert any(w.startswith("divergent") and "phase_volume" in w for w in words)

@@ -58,8 +58,8 @@ def plot_convergence(table, *, quantities=None, limit: int = 5):
     left.set_title("Grid Convergence Index (x: oscillatory)")
     if "divergent" in table and table["divergent"].astype(bool).any():
         apart = list(dict.fromkeys(table.loc[table["divergent"].astype(bool), "quantity"]))
-        figure.text(0.01, 0.01, f"divergent (no order or GCI) at some times: {', '.join(apart[:4])}"
-                    + (f" and {len(apart) - 4} more" if len(apart) > 4 else ""), fontsize="small")
+        figure.supxlabel(f"divergent (no order or GCI) at some times: {', '.join(apart[:4])}"
+                         + (f" and {len(apart) - 4} more" if len(apart) > 4 else ""), fontsize="small")
     right.set_xlabel(TIME_LABEL)
     right.set_ylabel("apparent order p")
     right.set_title("Apparent order")
