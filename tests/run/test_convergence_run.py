@@ -134,7 +134,14 @@ def test_a_slab_measured_in_3d_keeps_its_3d_cell_size(tmp_path):
     paths = [_series(str(tmp_path / name), n, [0.0, 0.2], depth=0.1)
              for name, n in zip(("fine", "medium", "coarse"), CELLS)]
     result = grid_convergence_run(*paths, options=options)
-    assert [s.cell_size for s in result.sources] == pytest.approx([(0.1 / n ** 2) ** (1 / 3) for n in CELLS])
+    sizes = [(0.1 / n ** 2) ** (1 / 3) for n in CELLS]
+    assert [s.cell_size for s in result.sources] == pytest.approx(sizes)
+    # measure folders of such runs record dimension 3 in their manifests: read as they were measured
+    folders = [tmp_path / f"m{k}" for k in range(3)]
+    for path, folder in zip(paths, folders):
+        measure(path, options=options, out=folder, contours=False)
+    result = grid_convergence_run(*folders)
+    assert [s.cell_size for s in result.sources] == pytest.approx(sizes)
 
 
 def test_a_run_ending_just_before_the_others_still_pairs_at_the_last_time(tmp_path):
