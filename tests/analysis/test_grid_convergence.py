@@ -47,10 +47,14 @@ def test_exact_power_law_recovered_with_non_constant_ratios():
 
 
 def test_oscillatory_flagged_and_arrays_element_by_element():
-    fine, medium, coarse = np.array([1.0, 6.063, 1.0]), np.array([0.9, 5.972, 1.0]), np.array([0.95, 5.863, 1.0])
+    # 1.0, 0.95, 1.05: signs alternate, |e32/e21| = 2; 1.0, 0.9, 0.95: |e32/e21| = 0.5, below the p -> 0
+    # limit 1 of Celik's eq. (5) for alternating signs: oscillatory and divergent, no order
+    fine, medium, coarse = (np.array([1.0, 6.063, 1.0, 1.0]), np.array([0.95, 5.972, 1.0, 0.9]),
+                            np.array([1.05, 5.863, 1.0, 0.95]))
     out = grid_convergence(fine, medium, coarse, cell_sizes=(1.0, 1.5, 2.0))
-    assert out["oscillatory"].tolist() == [True, False, False]
-    assert np.isnan(out["apparent_order"][2])  # equal values: no order
+    assert out["oscillatory"].tolist() == [True, False, False, True]
+    assert out["divergent"].tolist() == [False, False, False, True]
+    assert np.isnan(out["apparent_order"][2:]).all()  # equal values, divergent: no order
     assert np.isfinite(out["apparent_order"][:2]).all()
 
 
@@ -93,3 +97,57 @@ def test_a_conserving_run_gives_no_drift_order():
     table = convergence_table(*frames, cell_sizes=(1.0, 2.0, 4.0))
     rows = table[(table["time"] == 1.0) & table["quantity"].isin(["phase_volume_drift", "phase_volume_drift_abs"])]
     assert len(rows) == 2 and rows["apparent_order"].isna().all() and not rows["oscillatory"].any()
+
+
+@pytest.mark.parametrize("order", [1.0, 2.0])
+@pytest.mark.parametrize("r21, r32", [(1.3, 2.0), (2.0, 1.5), (1.5, 1.5), (1.54, 1.3)])
+def test_exact_power_law_gives_its_order_for_any_ratios(r21, r32, order):
+    # phi = phi0 + C h^p exactly: Celik et al. 2008 eqs. (3)-(10) give p, phi_ext21 = phi0 and
+    # GCI_fine = 1.25 |phi1 - phi2| / |phi1| / (r21^p - 1) in closed form (for constant r, eq. (5) is
+    # p = ln(e32/e21) / ln r). Refined by 1.3 then 2 the fixed-point iteration of eq. (5) oscillated away
+    # (no figures); brentq on the signed form finds the root.
+    h = np.array([1.0, r21, r21 * r32])
+    phi0, c = 2.6, 0.005
+    phi = phi0 + c * h ** order
+    out = grid_convergence(*phi, cell_sizes=h)
+    assert out["apparent_order"] == pytest.approx(order, rel=1e-9)
+    assert out["extrapolated"] == pytest.approx(phi0, rel=1e-12)
+    gci = 1.25 * abs(phi[0] - phi[1]) / phi[0] / (r21 ** order - 1)
+    assert out["gci_fine"] == pytest.approx(gci, rel=1e-9)
+    if r21 == r32:
+        assert out["apparent_order"] == pytest.approx(np.log((phi[2] - phi[1]) / (phi[1] - phi[0])) / np.log(r21),
+                                                      rel=1e-9)
+    assert not out["divergent"] and not out["oscillatory"]
+
+
+def test_equal_differences_with_unequal_ratios_get_their_order():
+    # drop counts 5, 6, 7 on h = 1, 2, 3 (r21 = 2, r32 = 1.5): e32/e21 = 1 = 2^p (1.5^p - 1) / (2^p - 1)
+    # holds at p = 1 (by hand: 2 * 0.5 / 1), so phi_ext = (2 * 5 - 6) / (2 - 1) = 4 and GCI = 1.25 * 0.2 / 1
+    out = grid_convergence(5.0, 6.0, 7.0, cell_sizes=(1.0, 2.0, 3.0))
+    assert out["apparent_order"] == pytest.approx(1.0, rel=1e-9)
+    assert out["extrapolated"] == pytest.approx(4.0, rel=1e-9)
+    assert out["gci_fine"] == pytest.approx(0.25, rel=1e-9)
+    assert not out["divergent"]
+
+
+@pytest.mark.parametrize("values, sizes", [((2.6, 2.7, 2.75), (1.0, 1.5, 2.25)), ((1.0, 1.1, 1.15), (1.0, 1.3, 2.0)),
+                                           ((5.0, 6.0, 7.0), (1.0, 2.0, 4.0))])
+def test_values_moving_apart_are_divergent_with_empty_figures(values, sizes):
+    # Stern et al. (2001): the convergence ratio e21/e32 = 2 (> 1) is monotone divergence; for constant r the
+    # signed order ln(e32/e21)/ln r is negative (-1.71 for the first) or zero (the third). With r21 = 1.3,
+    # r32 = 1.54 the ratio e32/e21 = 0.5 lies below ln r32 / ln r21 = 1.64, the p -> 0 limit of Celik's
+    # eq. (5): no positive order. The |.| form read p = 1.71 and 8.35 with GCIs of 4.8 % and 1.6 %.
+    out = grid_convergence(*values, cell_sizes=sizes)
+    assert out["divergent"] and not out["oscillatory"]
+    for name in ("apparent_order", "extrapolated", "gci_fine", "gci_medium", "asymptotic_ratio"):
+        assert np.isnan(out[name]), name
+
+
+def test_oscillatory_divergence_is_flagged_both_ways():
+    # e21 = -0.1, e32 = +0.05: signs alternate and |e32/e21| = 0.5 lies below 1, the p -> 0 limit for s = -1
+    out = grid_convergence(1.0, 0.9, 0.95, cell_sizes=(1.0, 1.5, 2.25))
+    assert out["oscillatory"] and out["divergent"] and np.isnan(out["apparent_order"])
+    # oscillatory convergence as before: |e32/e21| = 2 > 1 has its root (constant r: ln 2 / ln 1.5)
+    out = grid_convergence(1.0, 0.95, 1.05, cell_sizes=(1.0, 1.5, 2.25))
+    assert out["oscillatory"] and not out["divergent"]
+    assert out["apparent_order"] == pytest.approx(np.log(2.0) / np.log(1.5), rel=1e-9)

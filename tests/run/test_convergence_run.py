@@ -1,5 +1,6 @@
 """The convergence command: three runs of one case, measured here or read from measure folders."""
 
+import json
 import os
 
 import numpy as np
@@ -10,7 +11,7 @@ from click.testing import CliRunner
 from conftest import write_listing
 from phasegauge import measure
 from phasegauge.cli import main
-from phasegauge.errors import OptionError
+from phasegauge.errors import OptionError, ResolutionWarning, SeriesWarning
 from phasegauge.meshgen import grid_mesh
 from phasegauge.run.convergence import grid_convergence_run
 from phasegauge.run.options import MeasureOptions
@@ -18,17 +19,22 @@ from phasegauge.run.options import MeasureOptions
 CELLS = (40, 25, 16)  # h = 0.025, 0.04, 0.0625: ratios 1.6 and 1.5625 (not constant)
 
 
-def _series(folder, n, times):
-    """c = x^2 (1 - t/2) on cells of an n x n unit-square grid, time in a listing.
+def _series(folder, n, times, *, depth=None, factor=1.0):
+    """c = factor x^2 (1 - t/2) on cells of an n x n unit-square grid, time in a listing.
+
+    With ``depth`` the grid is a slab of hexahedra one cell thick, ``depth`` deep (a finite-volume 2D run).
 
     The phase volume is the midpoint rule of the integral: exactly (1/3 - h^2/12)(1 - t/2), h = 1/n
     (midpoint-rule error of x^2 over a cell of width h is h^3/12), so p = 2 and the extrapolated
     value is (1 - t/2)/3, both analytic.
     """
     os.makedirs(folder, exist_ok=True)
-    mesh = grid_mesh((n, n), kind="quad")
+    if depth is None:
+        mesh = grid_mesh((n, n), kind="quad")
+    else:
+        mesh = grid_mesh((n, n, 1), bounds=[(0.0, 1.0), (0.0, 1.0), (0.0, depth)], kind="hexahedron")
     x = mesh.cell_centroids[:, 0]
-    return write_listing(folder, ((t, f"s_{k}.vtu", mesh, {"c": x ** 2 * (1 - t / 2)})
+    return write_listing(folder, ((t, f"s_{k}.vtu", mesh, {"c": factor * x ** 2 * (1 - t / 2)})
                                   for k, t in enumerate(times)))
 
 
@@ -92,3 +98,87 @@ def test_cli_refuses_existing_folder_and_wrong_order(tmp_path):
     assert not os.path.exists(out + "2")
     with pytest.raises(OptionError, match="field to measure"):
         grid_convergence_run(fine, medium, coarse)
+
+
+@pytest.mark.parametrize("inputs", ["series", "measure folders"])
+def test_a_slab_one_cell_thick_gets_the_order_of_its_2d_mesh(tmp_path, inputs):
+    # the same O(h^2) phase area (midpoint rule of x^2: (1/3 - h^2/12)(1 - t/2) per unit depth, h = 1/n) on
+    # quads and on hexahedra one cell thick, 0.1 deep: measure reads the slab as 2D, so its cell size is
+    # (area / N)^(1/2) = 1/n (Celik et al. 2008, eq. 1, in 2D) and p = 2 both ways; the 3D size
+    # (0.1 / n^2)^(1/3) read p = 3
+    options = MeasureOptions(field="c", analyses=("conservation",))
+    orders = {}
+    for kind, depth in (("quads", None), ("slab", 0.1)):
+        paths = [_series(str(tmp_path / kind / name), n, [0.0, 0.2], depth=depth)
+                 for name, n in zip(("fine", "medium", "coarse"), CELLS)]
+        if inputs == "measure folders":
+            folders = [tmp_path / kind / f"m{k}" for k in range(3)]
+            for path, folder in zip(paths, folders):
+                measure(path, options=options, out=folder, contours=False)
+            result = grid_convergence_run(*folders, out=tmp_path / kind / "conv")
+        else:
+            result = grid_convergence_run(*paths, options=options, out=tmp_path / kind / "conv")
+        assert [s.cell_size for s in result.sources] == pytest.approx([1 / n for n in CELLS], rel=1e-12)
+        assert {s.dimension for s in result.sources} == {2}
+        rows = result.table[result.table["quantity"] == "phase_volume"]
+        orders[kind] = rows["apparent_order"].to_numpy()
+    assert orders["quads"] == pytest.approx(2.0, rel=1e-6)
+    assert orders["slab"] == pytest.approx(2.0, rel=1e-6)
+    manifest = json.loads((tmp_path / "slab" / "conv" / "manifest.json").read_text())
+    assert [m["depth"] for m in manifest["meshes"]] == pytest.approx([0.1] * 3)
+
+
+def test_a_slab_measured_in_3d_keeps_its_3d_cell_size(tmp_path):
+    # with keep_3d measure reads the slab as 3D, and so does the study: h = (0.1 / n^2)^(1/3)
+    options = MeasureOptions(field="c", analyses=("conservation",), keep_3d=True)
+    paths = [_series(str(tmp_path / name), n, [0.0, 0.2], depth=0.1)
+             for name, n in zip(("fine", "medium", "coarse"), CELLS)]
+    result = grid_convergence_run(*paths, options=options)
+    sizes = [(0.1 / n ** 2) ** (1 / 3) for n in CELLS]
+    assert [s.cell_size for s in result.sources] == pytest.approx(sizes)
+    # measure folders of such runs record dimension 3 in their manifests: read as they were measured
+    folders = [tmp_path / f"m{k}" for k in range(3)]
+    for path, folder in zip(paths, folders):
+        measure(path, options=options, out=folder, contours=False)
+    result = grid_convergence_run(*folders)
+    assert [s.cell_size for s in result.sources] == pytest.approx(sizes)
+
+
+def test_a_run_ending_just_before_the_others_still_pairs_at_the_last_time(tmp_path):
+    # the coarse run's last output at 0.2999999 instead of 0.3 (1e-6 of the 0.1 interval): the fine time 0.3
+    # pairs with it (the tolerance 1e-6 of the median output interval is our threshold); times the other runs
+    # do not reach are named in a warning
+    options = MeasureOptions(field="c", analyses=("conservation",))
+    fine = _series(str(tmp_path / "fine"), CELLS[0], [0.0, 0.1, 0.2, 0.3, 0.4])
+    medium = _series(str(tmp_path / "medium"), CELLS[1], [0.0, 0.1, 0.2, 0.3])
+    coarse = _series(str(tmp_path / "coarse"), CELLS[2], [0.0, 0.1, 0.2, 0.2999999])
+    with pytest.warns(SeriesWarning, match=r"times 0.4 lie outside .*left out of the pairing"):
+        result = grid_convergence_run(fine, medium, coarse, options=options, out=tmp_path / "conv")
+    rows = result.table[result.table["quantity"] == "phase_volume"]
+    assert rows["time"].tolist() == pytest.approx([0.0, 0.1, 0.2, 0.3])
+    manifest = json.loads((tmp_path / "conv" / "manifest.json").read_text())
+    assert any("left out of the pairing" in w for w in manifest["warnings"])
+
+
+def test_diverging_values_are_flagged_and_warned_once(tmp_path):
+    # the field scaled by 1.0, 1.1, 1.15 on the fine, medium and coarse mesh: the phase volume moves away
+    # as the mesh is refined, e32/e21 = 0.52 below ln r32 / ln r21 = 0.95 (the p -> 0 limit of Celik et al.
+    # 2008 eq. 5, by hand), so there is no positive order: divergent, with empty figures
+    options = MeasureOptions(field="c", analyses=("conservation",))
+    paths = [_series(str(tmp_path / name), n, [0.0, 0.2], factor=f)
+             for name, n, f in zip(("fine", "medium", "coarse"), CELLS, (1.0, 1.1, 1.15))]
+    with pytest.warns(ResolutionWarning, match=r"values move apart .*phase_volume at t = 0, 0.2") as record:
+        result = grid_convergence_run(*paths, options=options, out=tmp_path / "conv")
+    assert len([w for w in record if issubclass(w.category, ResolutionWarning)]) == 1
+    rows = result.table[result.table["quantity"] == "phase_volume"]
+    assert rows["divergent"].all() and rows["apparent_order"].isna().all() and rows["gci_fine"].isna().all()
+    table = pd.read_csv(tmp_path / "conv" / "convergence.csv")
+    assert table.columns[-1] == "divergent"
+    manifest = json.loads((tmp_path / "conv" / "manifest.json").read_text())
+    assert any("phase_volume" in w and "move apart" in w for w in manifest["warnings"])
+    from matplotlib.text import Text
+
+    from phasegauge.report._convergence_report import plot_convergence
+
+    words = [t.get_text() for t in plot_convergence(result.table).findobj(Text)]
+    assert any(w.startswith("divergent") and "phase_volume" in w for w in words)

@@ -2,13 +2,16 @@
 
 The procedure is the one of Celik et al. (2008): three meshes of one case,
 fine (1), medium (2) and coarse (3), with representative cell sizes
-h1 < h2 < h3; the apparent order solves
+h1 < h2 < h3; the apparent order p solves Celik's eq. (5) in its signed form
 
-    p = |ln|eps32 / eps21| + q(p)| / ln r21,    q(p) = ln((r21^p - s) / (r32^p - s)),
+    |eps32 / eps21| = r21^p (r32^p - s) / (r21^p - s),
 
 with eps21 = phi2 - phi1, eps32 = phi3 - phi2, s = sign(eps32 / eps21) and
-r21 = h2 / h1, r32 = h3 / h2, by fixed-point iteration (q = 0 for a constant
-ratio, where the first step is exact). Everything here is arrays in, arrays out.
+r21 = h2 / h1, r32 = h3 / h2. Its right side rises in p from ln r32 / ln r21
+(s = +1) or 1 (s = -1) at p -> 0 without bound, so it has one positive root when
+|eps32 / eps21| lies above that limit, found by bracketing (``scipy.optimize.brentq``),
+and none otherwise: the values then move apart as the mesh is refined (divergent).
+Everything here is arrays in, arrays out.
 """
 
 from __future__ import annotations
@@ -28,7 +31,7 @@ GCI_SAFETY_FACTOR = 1.25
 #: names of the arrays :func:`grid_convergence` returns
 CONVERGENCE_FIELDS = ("refinement_ratio_21", "refinement_ratio_32", "apparent_order", "extrapolated",
                       "relative_error_fine", "extrapolated_relative_error_fine", "gci_fine", "gci_medium",
-                      "asymptotic_ratio", "oscillatory")
+                      "asymptotic_ratio", "oscillatory", "divergent")
 
 
 def representative_cell_size(total_measure, n_cells, dimension: int):
@@ -77,6 +80,48 @@ UNIT_SCALE = frozenset({"segregation_intensity", "mixing_index", "mixing_index_i
 SCALE_OF = MappingProxyType({"phase_volume_drift_abs": "phase_volume"})
 
 
+#: an apparent order below this is none: the values do not come closer as the mesh is refined
+#: (r21^p - 1 would put the GCI above a million times the relative error; our threshold)
+SMALLEST_ORDER = 1e-6
+
+#: the search for the apparent order stops here (no order beyond it is read; our threshold)
+LARGEST_ORDER = 1e4
+
+
+def _log_model_ratio(p, r21, r32, s):
+    """ln of r21^p (r32^p - s) / (r21^p - s), the model's |eps32/eps21| at order p (no overflow)."""
+    a, b = p * np.log(r32), p * np.log(r21)
+    if s > 0:  # b + ln(e^a - 1) - ln(e^b - 1), with ln(e^x - 1) = x + ln(1 - e^-x)
+        return a + np.log(-np.expm1(-a)) - np.log(-np.expm1(-b))
+    return b + np.logaddexp(a, 0.0) - np.logaddexp(b, 0.0)
+
+
+def _apparent_order(ratio, r21, r32, tolerance, max_iterations):
+    """The positive root p of Celik's eq. (5) for one quantity, or -1 when there is none, NaN if undefined.
+
+    ``ratio`` is eps32 / eps21 (finite, not zero). The model ratio rises in p from its p -> 0 limit
+    (ln r32 / ln r21 for s = +1, 1 for s = -1): a |ratio| at or below that limit has no positive root.
+    """
+    from scipy.optimize import brentq
+
+    s = 1.0 if ratio > 0 else -1.0
+    target = np.log(abs(ratio))
+
+    def residual(p):
+        return _log_model_ratio(p, r21, r32, s) - target
+
+    if not residual(SMALLEST_ORDER) < 0.0:
+        return -1.0
+    high = 1.0
+    while residual(high) < 0.0:
+        if high >= LARGEST_ORDER:
+            return float("nan")
+        high *= 2.0
+    low = max(SMALLEST_ORDER, high / 2.0) if high > 1.0 else SMALLEST_ORDER
+    return brentq(residual, low, high, xtol=tolerance, rtol=max(tolerance, 4 * np.finfo(float).eps),
+                  maxiter=max_iterations)
+
+
 def grid_convergence(fine, medium, coarse, *, cell_sizes, safety_factor: float = GCI_SAFETY_FACTOR,
                      tolerance: float = 1e-12, max_iterations: int = 500, scale=None) -> dict:
     """Apparent order, extrapolated value and Grid Convergence Index of values on three meshes.
@@ -91,8 +136,10 @@ def grid_convergence(fine, medium, coarse, *, cell_sizes, safety_factor: float =
     safety_factor : float
         Safety factor of the GCI (1.25 for three meshes).
     tolerance : float
-        Fixed-point iteration stops when p changes by less than this.
+        The apparent order is found to this tolerance, absolute and relative (``brentq``'s
+        ``xtol`` and ``rtol``).
     max_iterations : int
+        Most iterations of the root search.
 
     Returns
     -------
@@ -103,12 +150,14 @@ def grid_convergence(fine, medium, coarse, *, cell_sizes, safety_factor: float =
         ``extrapolated_relative_error_fine`` (e_ext21 = |(phi_ext21 - phi1)/phi_ext21|),
         ``gci_fine`` (Fs e_a21 / (r21^p - 1)), ``gci_medium`` (Fs e_a32 / (r32^p - 1)),
         ``asymptotic_ratio`` (GCI_medium / (r21^p GCI_fine), near 1 in the
-        asymptotic range), ``oscillatory`` (True when eps32/eps21 < 0). Relative
-        errors and GCIs are fractions, not percent. Where the order is undefined
-        (equal values on two meshes, no convergence of the iteration) the order
-        and everything after it is NaN. Values differing by no more than :data:`ROUND_OFF`
-        of the quantity's scale (the largest of the three magnitudes, or ``scale`` when that
-        is larger: 1 for a fraction) are equal.
+        asymptotic range), ``oscillatory`` (True when eps32/eps21 < 0) and
+        ``divergent`` (True when Celik's equation has no positive root: the values move
+        apart, or come no closer, as the mesh is refined; for a constant ratio
+        |eps21| >= |eps32|). Relative errors and GCIs are fractions, not percent. Where
+        the order is undefined (equal values on two meshes, a divergent quantity) the
+        order and everything after it is NaN; an order below :data:`SMALLEST_ORDER` is none.
+        Values differing by no more than :data:`ROUND_OFF` of the quantity's scale (the largest
+        of the three magnitudes, or ``scale`` when that is larger: 1 for a fraction) are equal.
 
     Raises
     ------
@@ -149,18 +198,11 @@ def grid_convergence(fine, medium, coarse, *, cell_sizes, safety_factor: float =
         ratio = eps32 / eps21
         defined = np.isfinite(ratio) & (ratio != 0)
         s = np.sign(ratio)
-        log_ratio = np.log(np.abs(ratio))
-        p = np.abs(log_ratio) / np.log(r21)  # q(p) = 0: the start, and the answer for constant ratios
-        converged = np.zeros(p.shape, dtype=bool)
-        for _ in range(max_iterations):
-            q = np.log((r21 ** p - s) / (r32 ** p - s))
-            p_new = np.abs(log_ratio + q) / np.log(r21)
-            step = np.abs(p_new - p)
-            converged = np.isfinite(p_new) & (step <= tolerance * np.maximum(1.0, np.abs(p_new)))
-            p = np.where(defined, p_new, np.nan)
-            if np.all(converged | ~defined | ~np.isfinite(p)):
-                break
-        p = np.where(defined & converged & (p > 0), p, np.nan)
+        p = np.full(ratio.shape, np.nan)
+        for k in np.flatnonzero(defined):
+            p[k] = _apparent_order(ratio[k], r21[k], r32[k], tolerance, max_iterations)
+        divergent = defined & (p < 0)
+        p = np.where(p > 0, p, np.nan)
         r21p, r32p = r21 ** p, r32 ** p
         extrapolated = (r21p * phi1 - phi2) / (r21p - 1.0)
         e21 = np.abs((phi1 - phi2) / phi1)
@@ -172,7 +214,7 @@ def grid_convergence(fine, medium, coarse, *, cell_sizes, safety_factor: float =
     out = {"refinement_ratio_21": r21, "refinement_ratio_32": r32, "apparent_order": p,
            "extrapolated": extrapolated, "relative_error_fine": e21, "extrapolated_relative_error_fine": e_ext,
            "gci_fine": gci_fine, "gci_medium": gci_medium, "asymptotic_ratio": asymptotic,
-           "oscillatory": defined & (s < 0)}
+           "oscillatory": defined & (s < 0), "divergent": divergent}
     if scalar:
         return {k: (bool(v[0]) if v.dtype == bool else float(v[0])) for k, v in out.items()}
     return out
@@ -215,17 +257,28 @@ def droplet_integrals(droplets):
     return out.reset_index()
 
 
+#: a run's time span reaches this share of the median output interval beyond its first and last
+#: output (a run ending 1e-7 before the others still pairs at their last time; our threshold)
+PAIRING_TOLERANCE = 1e-6
+
+
 def paired_times(times_fine, times_medium, times_coarse) -> np.ndarray:
     """The times at which three runs are compared: the fine run's times inside every run's time span.
 
-    A run with one step (a steady result) spans every time; three one-step runs pair at the fine time.
+    Each span reaches :data:`PAIRING_TOLERANCE` of the median output interval of the three runs (at
+    least 1e-12 of the time, for round-off) beyond its first and last time. A run with one step (a
+    steady result) spans every time; three one-step runs pair at the fine time.
     """
     spans = [np.asarray(t, dtype=float) for t in (times_fine, times_medium, times_coarse)]
     fine = spans[0]
+    intervals = np.concatenate([np.diff(np.unique(t[np.isfinite(t)])) for t in spans])
+    reach = PAIRING_TOLERANCE * float(np.median(intervals)) if len(intervals) else 0.0
     keep = np.ones(fine.shape, dtype=bool)
     for t in spans[1:]:
         if len(t) > 1:
-            keep &= (fine >= t.min() - 1e-12 * max(1.0, abs(t.min()))) & (fine <= t.max() + 1e-12 * max(1.0, abs(t.max())))
+            low, high = t.min(), t.max()
+            keep &= fine >= low - max(reach, 1e-12 * max(1.0, abs(low)))
+            keep &= fine <= high + max(reach, 1e-12 * max(1.0, abs(high)))
     return fine[keep]
 
 
@@ -259,9 +312,10 @@ def convergence_table(fine, medium, coarse, *, cell_sizes, safety_factor: float 
     DataFrame
         One row per quantity and paired time: :data:`CONVERGENCE_COLUMNS`, then
         ``refinement_ratio_21``, ``refinement_ratio_32``,
-        ``extrapolated_relative_error_fine``, ``gci_medium``, ``asymptotic_ratio`` and
-        ``oscillatory``. The medium and coarse values are interpolated linearly in
-        time at the fine run's times (exact where the times agree). Quantities are
+        ``extrapolated_relative_error_fine``, ``gci_medium``, ``asymptotic_ratio``,
+        ``oscillatory`` and ``divergent``. The medium and coarse values are interpolated
+        linearly in time at the fine run's times (exact where the times agree; a time within
+        the pairing tolerance beyond a run's last output takes that output's value). Quantities are
         the numeric columns all three tables share, except step numbers and time.
 
     References

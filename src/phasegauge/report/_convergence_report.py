@@ -25,7 +25,7 @@ def plot_convergence(table, *, quantities=None, limit: int = 5):
     ----------
     table : DataFrame
         The convergence table (``quantity``, ``time``, ``gci_fine``, ``apparent_order``,
-        ``oscillatory``).
+        ``oscillatory``, ``divergent``).
     quantities : sequence of str, optional
         Quantities to draw (default: the main ones the table holds, at most ``limit``).
     limit : int
@@ -56,6 +56,10 @@ def plot_convergence(table, *, quantities=None, limit: int = 5):
     if any(np.nanmin(100 * table.loc[table["quantity"] == q, "gci_fine"]) > 0 for q in quantities):
         left.set_yscale("log")
     left.set_title("Grid Convergence Index (x: oscillatory)")
+    if "divergent" in table and table["divergent"].astype(bool).any():
+        apart = list(dict.fromkeys(table.loc[table["divergent"].astype(bool), "quantity"]))
+        figure.supxlabel(f"divergent (no order or GCI) at some times: {', '.join(apart[:4])}"
+                         + (f" and {len(apart) - 4} more" if len(apart) > 4 else ""), fontsize="small")
     right.set_xlabel(TIME_LABEL)
     right.set_ylabel("apparent order p")
     right.set_title("Apparent order")
@@ -65,7 +69,7 @@ def plot_convergence(table, *, quantities=None, limit: int = 5):
 
 
 def write_convergence_report(out, table, *, sources: list, safety_factor: float, options, version: str,
-                             started: float) -> None:
+                             started: float, notes: list = ()) -> None:
     """Write the outputs of a grid convergence study into ``out`` (each file atomically).
 
     Parameters
@@ -82,6 +86,9 @@ def write_convergence_report(out, table, *, sources: list, safety_factor: float,
     version : str
     started : float
         Start of the study (seconds since the epoch).
+    notes : list of str
+        The study's warnings (divergent quantities, times left out of the pairing), kept in the
+        manifest under ``warnings``.
     """
     out = os.fspath(out)
     atomic_write_csv(os.path.join(out, "convergence.csv"), table)
@@ -91,7 +98,8 @@ def write_convergence_report(out, table, *, sources: list, safety_factor: float,
         atomic_save_figure(os.path.join(out, "convergence.png"), figure)
         written.append("convergence.png")
     manifest = run_manifest("convergence", version=version, inputs=[],
-                            fields={"meshes": list(sources), "safety_factor": safety_factor, "options": options},
+                            fields={"meshes": list(sources), "safety_factor": safety_factor, "options": options,
+                                    "warnings": list(notes)},
                             outputs=written, timings={"total_seconds": round(time.time() - started, 3)})
     atomic_write_json(os.path.join(out, "manifest.json"), manifest)
     mark_complete(out)

@@ -16,7 +16,8 @@ import time
 import warnings
 from dataclasses import dataclass, field
 
-from ..errors import InputError, InputFileNotFound, MeshWarning, OptionError, PhasegaugeWarning
+from ..errors import (InputError, InputFileNotFound, MeshWarning, OptionError, PhasegaugeWarning,
+                      ResolutionWarning, SeriesWarning)
 
 __all__ = ["ConvergenceSource", "ConvergenceResult", "grid_convergence_run", "is_measure_folder",
            "MESH_NAMES"]
@@ -40,13 +41,17 @@ class ConvergenceSource:
     total_measure: float = float("nan")
     cell_size: float = float("nan")
     field: str = ""
+    recorded_dimension: int = 0  # a measure folder's: the dimension its steps were measured in
+    keep_3d: bool = False  # a measure folder's option
+    depth: float = 0.0  # of a mesh one cell thick measured as 2D
 
     def record(self) -> dict:
         """The source as the manifest keeps it."""
         return {"mesh": self.name, "path": os.path.abspath(self.path), "kind": self.kind,
                 "series": self.series_path, "field": self.field, "cells": self.n_cells,
                 "dimension": self.dimension, "total_measure": self.total_measure, "cell_size": self.cell_size,
-                "steps": 0 if self.steps is None else int(len(self.steps))}
+                "steps": 0 if self.steps is None else int(len(self.steps)),
+                **({"depth": self.depth} if self.depth else {})}
 
 
 @dataclass
@@ -99,10 +104,26 @@ def _read_folder(source: ConvergenceSource) -> None:
                                            "or the series itself")
     source.series_path = str((manifest.get("series") or {}).get("path", ""))
     source.field = str((manifest.get("options") or {}).get("field", ""))
+    source.keep_3d = bool((manifest.get("options") or {}).get("keep_3d", False))
+    try:
+        source.recorded_dimension = int((manifest.get("series") or {}).get("dimension", 0))
+    except (TypeError, ValueError):
+        source.recorded_dimension = 0
 
 
-def _mesh_size(source: ConvergenceSource, known: bool) -> None:
+def _measured_as_2d(source: ConvergenceSource, options) -> bool:
+    """Whether a mesh one cell thick is read as 2D: a measure folder's as its run recorded, else unless keep_3d."""
+    if source.kind == "measure folder":
+        recorded = source.recorded_dimension
+        if recorded in (2, 3):
+            return recorded == 2  # as the measure run recorded its steps
+        return not source.keep_3d
+    return not getattr(options, "keep_3d", False)
+
+
+def _mesh_size(source: ConvergenceSource, known: bool, options=None) -> None:
     from ..io import Series
+    from ..model.quasi2d import one_cell_thick
 
     if known:
         return
@@ -114,9 +135,48 @@ def _mesh_size(source: ConvergenceSource, known: bool) -> None:
         warnings.simplefilter("ignore", PhasegaugeWarning)
         with Series(source.series_path) as series:
             mesh = series.read_mesh(0)
+    if mesh.dimension == 3 and _measured_as_2d(source, options):
+        flat = one_cell_thick(mesh)  # measured per unit depth on its face plane (run.step.flatten_step)
+        if flat is not None:
+            mesh, source.depth = flat.mesh, float(flat.depth)
     source.n_cells = int(mesh.n_whole_cells)
     source.dimension = int(mesh.dimension)
     source.total_measure = float(mesh.total_measure)
+
+
+def _times_words(times, shown: int = 3) -> str:
+    times = sorted(float(t) for t in times)
+    words = ", ".join(f"{t:g}" for t in times[:shown])
+    return words + (f" and {len(times) - shown} more" if len(times) > shown else "")
+
+
+def _divergent_warning(table) -> str:
+    """One line naming the divergent quantities and their times ("" when there are none)."""
+    if not len(table) or "divergent" not in table:
+        return ""
+    rows = table[table["divergent"].astype(bool)]
+    if not len(rows):
+        return ""
+    named = [f"{q} at t = {_times_words(g['time'])}" for q, g in rows.groupby("quantity", sort=False)]
+    oscillating = int(rows["oscillatory"].astype(bool).sum()) if "oscillatory" in rows else 0
+    kind = f"; {oscillating} rows also oscillatory" if oscillating else ""
+    return (f"values move apart as the mesh is refined (no positive apparent order, so no extrapolated value or "
+            f"GCI; column 'divergent'{kind}) for {'; '.join(named)}: refine further, or check that the three runs "
+            "are one case given FINE MEDIUM COARSE")
+
+
+def _unpaired_warning(fine_times, paired, sources) -> str:
+    """One line naming the fine run's times left out of the pairing ("" when every one is paired)."""
+    import numpy as np
+
+    fine_times = np.asarray(fine_times, dtype=float)
+    left = fine_times[~np.isin(fine_times, paired)]
+    if not len(left):
+        return ""
+    spans = ", ".join(f"{s.name} {float(s.steps['time'].min()):g} to {float(s.steps['time'].max()):g}"
+                      for s in sources[1:] if len(s.steps) > 1)
+    return (f"the fine run's times {_times_words(left)} lie outside the other runs' time spans ({spans}) and are "
+            "left out of the pairing; run the three meshes over the same times to compare them there")
 
 
 def grid_convergence_run(fine, medium, coarse, *, options=None, cell_sizes=None, safety_factor: float = 1.25,
@@ -160,7 +220,8 @@ def grid_convergence_run(fine, medium, coarse, *, options=None, cell_sizes=None,
 
 
 def _run(fine, medium, coarse, *, options, cell_sizes, safety_factor, out, overwrite, workers, threads, progress):
-    from ..analysis.convergence import convergence_table, droplet_integrals, representative_cell_size
+    from ..analysis.convergence import (convergence_table, droplet_integrals, paired_times,
+                                        representative_cell_size)
     from .options import check_workers
 
     started = time.time()
@@ -190,7 +251,7 @@ def _run(fine, medium, coarse, *, options, cell_sizes, safety_factor, out, overw
                 raise OptionError(f"the {name} input is a series, so the field to measure is needed", where=path,
                                   fix="give --field (and --range, --phase as for measure)")
             source.series_path, source.field = os.path.abspath(path), options.field
-        _mesh_size(source, known=sizes is not None)
+        _mesh_size(source, known=sizes is not None, options=options)
         sources.append(source)
     if sizes is None:
         dims = {s.dimension for s in sources}
@@ -200,7 +261,8 @@ def _run(fine, medium, coarse, *, options, cell_sizes, safety_factor, out, overw
         sizes = tuple(representative_cell_size(s.total_measure, s.n_cells, s.dimension) for s in sources)
         measures = [s.total_measure for s in sources]
         if max(measures) > 1.01 * min(measures):
-            warnings.warn(MeshWarning(f"the three meshes cover different measures ({', '.join(f'{m:g}' for m in measures)}): "
+            covered = ", ".join(f"{m:g}" for m in measures)
+            warnings.warn(MeshWarning(f"the three meshes cover different measures ({covered}): "
                                       "are they the same case?"))
         if not sizes[0] < sizes[1] < sizes[2]:
             raise OptionError("the representative cell sizes do not grow from the fine to the coarse mesh "
@@ -227,8 +289,8 @@ def _run(fine, medium, coarse, *, options, cell_sizes, safety_factor, out, overw
 
     for source in sources:
         if source.kind == "series":
-            res = measure(source.path, options=options, workers=workers, threads=threads, progress=progress, snapshots=0,
-                          contours=False)
+            res = measure(source.path, options=options, workers=workers, threads=threads, progress=progress,
+                          snapshots=0, contours=False)
             source.steps, source.droplets = res.steps, res.droplets
     tables = []
     for source in sources:
@@ -238,6 +300,16 @@ def _run(fine, medium, coarse, *, options, cell_sizes, safety_factor, out, overw
             steps = steps.merge(integrals.drop(columns=["time"]), on="step", how="left")
         tables.append(steps)
     table = convergence_table(*tables, cell_sizes=sizes, safety_factor=safety_factor)
+    notes = []
+    unpaired = _unpaired_warning(tables[0]["time"], paired_times(*(t["time"].to_numpy(dtype=float) for t in tables)),
+                                 sources)
+    if unpaired:
+        notes.append(unpaired)
+        warnings.warn(SeriesWarning(unpaired, where=sources[0].path))
+    divergent = _divergent_warning(table)
+    if divergent:
+        notes.append(divergent)
+        warnings.warn(ResolutionWarning(divergent))
     result = ConvergenceResult(table=table, sources=sources, safety_factor=safety_factor)
     if out is not None:
         from ._report_data import package_version
@@ -245,5 +317,5 @@ def _run(fine, medium, coarse, *, options, cell_sizes, safety_factor, out, overw
 
         write_convergence_report(out, table, sources=[s.record() for s in sources], safety_factor=safety_factor,
                                  options=None if options is None else dataclasses.asdict(options),
-                                 version=package_version(), started=started)
+                                 version=package_version(), started=started, notes=notes)
     return result
