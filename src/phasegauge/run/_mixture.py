@@ -102,7 +102,8 @@ def normalize_mixture(options) -> dict:
         if value is not None and (not isinstance(value, str) or not value):
             raise OptionError(f"{name.replace('_', ' ')} must be a field name, found {value!r}",
                               fix="see the fields with 'phasegauge inspect'")
-    out["bulk_widths"] = _positive(options.bulk_widths, "bulk widths", "1 width (5-95 %) from the contour is the default")
+    out["bulk_widths"] = _positive(options.bulk_widths, "bulk widths",
+                                   "1 width (5-95 %) from the contour is the default")
     out["equilibrium_tolerance"] = _positive(options.equilibrium_tolerance, "equilibrium tolerance",
                                              "for example 0.01 (mole fraction)")
     if options.capillary_length is not None:
@@ -426,8 +427,9 @@ def _level_finding(steps, options, outside):
     fix = middle if options.phase == "upper" else 1.0 - middle
     text = (f"the contour level {float(options.level):g} lies outside the binodal pair {lean:.4g} to {rich:.4g} "
             f"at {_temperature_text(steps, outside)} ({int(outside.sum())} step(s), t = {times[0]:g} to "
-            f"{times[-1]:g}): the contour may miss the interface between the two phases, and their bulk compositions "
-            f"go unmeasured or wrong there; give --level {fix:.4g} (the middle of the binodal pair at t = {times[-1]:g})")
+            f"{times[-1]:g}): the contour may miss the interface between the two phases, and their bulk "
+            f"compositions go unmeasured or wrong there; give --level {fix:.4g} (the middle of the binodal pair "
+            f"at t = {times[-1]:g})")
     return Finding("level_outside_binodal", "warning", text,
                    {"steps": int(outside.sum()), "first_time": times[0], "last_time": times[-1],
                     "level": float(options.level), "suggested_level": fix})
