@@ -227,7 +227,10 @@ def bulk_compositions(mesh, composition, distance, *, width, multiple=4.0):
         Supplies ``cell_measures`` (the weights).
     composition : ndarray of shape (n_cells,), mole fraction
     distance : ndarray of shape (n_cells,), in mesh length units
-        Signed distance of each cell to the interface contour (either sign convention; NaN: unknown).
+        Signed distance of each cell to the interface contour, positive on the side of the higher
+        composition (NaN: unknown). With bulk cells on both sides either sign convention gives the
+        same result; with one side only, the sign names it (a measure run with ``--phase lower``
+        negates :func:`interface_distance`, whose sign follows the indicator).
     width : float, in mesh length units
         The measured interface width.
     multiple : float

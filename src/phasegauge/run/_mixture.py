@@ -32,6 +32,15 @@ SOLUTE_COLUMNS = ("solute_lean", "solute_rich", "partition_coefficient", "extrac
 #: by a quarter of the binodal's gap, are separated under half its gap too (see :func:`_separated`; our
 #: rule, not a published one)
 SEPARATION_SPREADS = 4.0
+#: bulks apart by more than this many times the sum of their spreads, each of at least
+#: :data:`PLATEAU_CELLS` cells, are flat plateaus: separated whatever the binodal's gap (our threshold:
+#: a tanh profile's tail beyond one width is 0.35 % of the jump, so its plateaus read 140 or more, and
+#: 134 to 818 in Cahn-Hilliard runs; the peaks of Gaussian-smoothed noise read 1.7 to 12 with 3 cells
+#: or more a side, 27.5 with 1 and 2)
+PLATEAU_SPREADS = 50.0
+#: the fewest bulk cells on each side that :data:`PLATEAU_SPREADS` judges (our threshold: the median and
+#: quartiles of a handful of cells say nothing of a plateau)
+PLATEAU_CELLS = 10
 
 
 def _positive(value, name, fix):
@@ -93,7 +102,8 @@ def normalize_mixture(options) -> dict:
         if value is not None and (not isinstance(value, str) or not value):
             raise OptionError(f"{name.replace('_', ' ')} must be a field name, found {value!r}",
                               fix="see the fields with 'phasegauge inspect'")
-    out["bulk_widths"] = _positive(options.bulk_widths, "bulk widths", "1 width (5-95 %) from the contour is the default")
+    out["bulk_widths"] = _positive(options.bulk_widths, "bulk widths",
+                                   "1 width (5-95 %) from the contour is the default")
     out["equilibrium_tolerance"] = _positive(options.equilibrium_tolerance, "equilibrium tolerance",
                                              "for example 0.01 (mole fraction)")
     if options.capillary_length is not None:
@@ -169,22 +179,26 @@ def mixture_step(step, mesh, ind, contour, metrics: dict, options, droplets=None
         width = metrics.get("width_second_moment", math.nan)
     bulk = {"bulk_composition_lean": math.nan, "bulk_composition_rich": math.nan,
             "bulk_spread_lean": math.nan, "bulk_spread_rich": math.nan}
+    cells = (0, 0)
     distance = None
     if contour is not None and contour.n_elements and np.isfinite(width) and width > 0:
         reach = options.bulk_widths * width
         distance = thermo.interface_distance(mesh, ind.cell, contour, level=options.level, reach=reach,
                                              measured=measured, periodic=tuple(options.periodic))
+        if options.phase != "upper":  # signed by the composition: positive on its rich side
+            np.negative(distance, out=distance)
         found = thermo.bulk_compositions(mesh, x, distance, width=width, multiple=options.bulk_widths)
         bulk = {k: found[k] for k in bulk}
+        cells = (found["bulk_cells_lean"], found["bulk_cells_rich"])
     out.update(bulk)
     lean, rich = bulk["bulk_composition_lean"], bulk["bulk_composition_rich"]
-    out["separated"] = separated = _separated(bulk, out["binodal_lean"], out["binodal_rich"], options)
+    out["separated"] = separated = _separated(bulk, cells, out["binodal_lean"], out["binodal_rich"], options)
     out["equilibrium_gap"] = (thermo.equilibrium_gap(lean, rich, out["binodal_lean"], out["binodal_rich"])
                               if separated else math.nan)
-    radius = out["drop_radius"] = _drop_radius(droplets, mesh.dimension)
+    table, drop = _drop_phase(mesh, ind, droplets, options)
+    radius = out["drop_radius"] = _drop_radius(table, mesh.dimension)
     shift = math.nan
     if options.capillary_length is not None and np.isfinite(radius) and radius > 0 and eq is not None:
-        drop = "rich" if options.phase == "upper" else "lean"
         shifts = thermo.gibbs_thomson_shift(model, t, radius, capillary_length=options.capillary_length,
                                             dimension=mesh.dimension, drop=drop)
         shift = float(np.nanmax(np.abs(shifts))) if np.isfinite(shifts).any() else math.nan
@@ -194,26 +208,51 @@ def mixture_step(step, mesh, ind, contour, metrics: dict, options, droplets=None
     return out
 
 
-def _separated(bulk: dict, binodal_lean: float, binodal_rich: float, options) -> bool:
+def _separated(bulk: dict, cells, binodal_lean: float, binodal_rich: float, options) -> bool:
     """Whether both bulks were measured and lie apart: by more than the tolerance, and either by half the
-    binodal's gap (where the model has one) or by a quarter of it and :data:`SEPARATION_SPREADS` times
-    the sum of their spreads. A quench's noise sets bulks a few hundredths apart on the two sides of its
-    contour, each about as wide as that; the peaks of an early spinodal pattern are narrow but lie a few
-    hundredths apart too (neither is a separation); two flat plateaus at 0.3 and 0.7 are apart by far
-    more than their spreads (a separation whose bulks have not reached the binodal) though under half
-    its gap."""
+    binodal's gap (where the model has one), or by a quarter of it and :data:`SEPARATION_SPREADS` times
+    the sum of their spreads, or as flat plateaus (``cells``: the bulk cells of the lean and the rich side)
+    by :data:`PLATEAU_SPREADS` times the sum of their spreads whatever the gap. A quench's noise sets bulks
+    a few hundredths apart on the two sides of its contour, each about as wide as that; the peaks of an
+    early spinodal pattern are narrow but lie a few hundredths apart too (neither is a separation); two
+    flat plateaus at 0.3 and 0.7 are apart by far more than their spreads (a separation whose bulks have
+    not reached the binodal) though under half its gap, and so are the plateaus of a mixture separated at
+    one temperature and quenched deeper (their distance a small part of the new binodal's gap)."""
     lean, rich = bulk["bulk_composition_lean"], bulk["bulk_composition_rich"]
     if not (np.isfinite(lean) and np.isfinite(rich) and rich - lean > options.equilibrium_tolerance):
         return False
     if not (np.isfinite(binodal_lean) and np.isfinite(binodal_rich)):
         return True
+    apart = rich - lean
     spreads = bulk["bulk_spread_lean"] + bulk["bulk_spread_rich"]
     gap = binodal_rich - binodal_lean
-    return bool(rich - lean > 0.5 * gap or (rich - lean > 0.25 * gap and rich - lean > SEPARATION_SPREADS * spreads))
+    flat = min(cells) >= PLATEAU_CELLS and apart > PLATEAU_SPREADS * spreads
+    return bool(apart > 0.5 * gap or (apart > 0.25 * gap and apart > SEPARATION_SPREADS * spreads) or flat)
+
+
+def _drop_phase(mesh, ind, droplets, options):
+    """The drops of the phase that forms them and its name: ``(table, 'rich' or 'lean')``, the table
+    None without the droplets analysis. The drops are the phase of the smaller volume: the indicator's
+    (``droplets``, the regions with c above the level) or the other one, labelled here (the regions
+    with c below it). The indicator's phase is the rich one unless ``--phase lower``."""
+    if droplets is None:
+        return None, "rich" if options.phase == "upper" else "lean"
+    c = np.asarray(ind.cell, dtype=float)
+    weights = np.asarray(mesh.cell_measures, dtype=float)
+    finite = np.isfinite(c)
+    inside = float(weights[finite & (c > options.level)].sum())
+    indicator = inside <= float(weights[finite].sum()) - inside
+    table = droplets
+    if not indicator:
+        from ..analysis.droplets import label_droplets
+
+        table = label_droplets(mesh, 1.0 - c, level=1.0 - options.level, connectivity=options.adjacency,
+                               periodic=tuple(options.periodic)).table
+    return table, "rich" if indicator == (options.phase == "upper") else "lean"
 
 
 def _drop_radius(droplets, dimension) -> float:
-    """Median equivalent radius of the drops from the volume with c above the level (drops that wrap
+    """Median equivalent radius of the drops from their volume beyond the level (drops that wrap
     around a periodic box are left out); NaN without drops."""
     if droplets is None or not len(droplets) or "threshold_volume" not in droplets:
         return math.nan
@@ -234,9 +273,8 @@ def _solute_step(step, mesh, x, distance, width, options) -> dict:
     solute = _cell_field(step, mesh, options.solute, "solute field")
     if distance is None:
         return out
-    rich_side = "positive" if options.phase == "upper" else "negative"
-    lean_side = "negative" if rich_side == "positive" else "positive"
-    receiving = rich_side if options.solute_receiving == "rich" else lean_side
+    # (the distance is signed by the composition: positive on the rich side, whatever --phase)
+    receiving = "positive" if options.solute_receiving == "rich" else "negative"
     found = thermo.solute_distribution(mesh, solute, distance, width=width, multiple=options.bulk_widths,
                                        receiving=receiving, composition=x)
     take, other = (("solute_rich", "solute_lean") if options.solute_receiving == "rich"
@@ -258,9 +296,11 @@ def mixture_findings(steps, options) -> list:
       still separated, a note when it is not so at the last step); one stable phase at the temperature, or
       for the mean composition (outside every two-phase region);
     - still mixed inside the spinodal (likewise);
+    - the contour level outside the binodal pair (a warning naming the level to give);
     - bulk compositions off the binodal by more than ``equilibrium_tolerance`` at the last
       separated step (a note instead when the gap lies within the Gibbs-Thomson shift expected
-      for the measured drop radius), and the time the gap fell below the tolerance for good.
+      for the measured drop radius), and the time the gap fell below the tolerance for good;
+      the text says so when the last steps were not separated.
     """
     from .assemble import Finding
 
@@ -288,10 +328,11 @@ def mixture_findings(steps, options) -> list:
         found.append(Finding("separated_one_phase", "warning" if still else "note", text,
                              {"steps": int(wrong.sum()), "first_time": times[0], "last_time": times[-1],
                               "at_last_step": still}))
-    # "still mixed" needs evidence: both bulks measured (and not apart), no interface found, or the
-    # composition's whole range under half the binodal's gap (a quench's noise); an interface with no
-    # bulk beyond it on a side and a range spanning the gap (a bulk without a plateau, a pattern still
-    # forming) says neither
+    # "still mixed" needs evidence: both bulks measured (and not apart), or the composition's whole range
+    # under half the binodal's gap (a quench's noise), or no interface found and the range not known;
+    # an interface with no bulk beyond it on a side and a range spanning the gap (a bulk without a
+    # plateau, a pattern still forming) says neither, nor does a field that spans the gap but never
+    # crosses the level (the level outside the binodal pair: the finding below)
     lean = steps["bulk_composition_lean"].to_numpy(dtype=float)
     rich = steps["bulk_composition_rich"].to_numpy(dtype=float)
     size = steps["interface_size"].to_numpy(dtype=float) if "interface_size" in steps else np.full(len(steps), np.nan)
@@ -299,8 +340,13 @@ def mixture_findings(steps, options) -> list:
     span = (steps["c_max"].to_numpy(dtype=float) - steps["c_min"].to_numpy(dtype=float)
             if "c_max" in steps and "c_min" in steps else np.full(len(steps), np.nan))
     gap = steps["binodal_rich"].to_numpy(dtype=float) - steps["binodal_lean"].to_numpy(dtype=float)
-    mixed_seen = (np.isfinite(lean) & np.isfinite(rich)) | ~(size > 0) | (span < 0.5 * gap)
-    unknown = (state == "unstable") & ~separated & ~mixed_seen
+    outside = _level_outside(steps, options)
+    if outside.any():
+        found.append(_level_finding(steps, options, outside))
+    lost = outside & ~(size > 0)  # no contour, the level outside the binodal pair: that finding says why
+    mixed_seen = ((np.isfinite(lean) & np.isfinite(rich)) | (span < 0.5 * gap)
+                  | (~(size > 0) & np.isnan(span) & ~lost))
+    unknown = (state == "unstable") & ~separated & ~mixed_seen & ~lost
     if unknown.any():
         times = _times(steps, unknown)
         still = bool(unknown[last])
@@ -313,7 +359,7 @@ def mixture_findings(steps, options) -> list:
                              "interface_width) until no bulk is left" + ("" if still else "; separated later"),
                              {"steps": int(unknown.sum()), "first_time": times[0], "last_time": times[-1],
                               "at_last_step": still}))
-    unstable = (state == "unstable") & ~separated & ~unknown
+    unstable = (state == "unstable") & ~separated & mixed_seen
     if unstable.any():
         times = _times(steps, unstable)
         still = bool(unstable[last])
@@ -327,10 +373,14 @@ def mixture_findings(steps, options) -> list:
     if measured.size:
         end = measured[-1]
         final_gap = float(gap[end])
+        # judged at the last step when it is separated, else said to be of an earlier one
+        later = "" if end == last else (f"; not separated at the last {last - end} step(s), from "
+                                         f"t = {float(steps['time'].iat[end + 1]):g}")
         shift = float(steps["gibbs_thomson_shift"].iat[end]) if "gibbs_thomson_shift" in steps else math.nan
         radius = float(steps["drop_radius"].iat[end]) if "drop_radius" in steps else math.nan
         figures = {"equilibrium_gap": final_gap, "tolerance": tol, "time": float(steps["time"].iat[end]),
-                   "drop_radius": _finite(radius), "gibbs_thomson_shift": _finite(shift)}
+                   "drop_radius": _finite(radius), "gibbs_thomson_shift": _finite(shift),
+                   "at_last_step": bool(end == last)}
         below = gap[measured] <= tol
         if below[-1]:
             first = measured[np.flatnonzero(~below)[-1] + 1] if (~below).any() else measured[0]
@@ -338,12 +388,12 @@ def mixture_findings(steps, options) -> list:
             figures["equilibrium_time"] = reached
             found.append(Finding("binodal_reached", "note",
                                  f"bulk compositions on the binodal within {tol:g} from t = {reached:g} "
-                                 f"(gap {final_gap:.3g} at t = {figures['time']:g})", figures))
+                                 f"(gap {final_gap:.3g} at t = {figures['time']:g}){later}", figures))
         elif np.isfinite(shift) and final_gap <= tol + shift:
             found.append(Finding("binodal_gibbs_thomson", "note",
-                                 f"bulk compositions off the planar binodal by {final_gap:.3g}, within the "
-                                 f"Gibbs-Thomson shift {shift:.3g} expected for drops of radius {radius:.3g} "
-                                 f"(tolerance {tol:g})", figures))
+                                 f"bulk compositions off the planar binodal by {final_gap:.3g} at "
+                                 f"t = {figures['time']:g}, within the Gibbs-Thomson shift {shift:.3g} expected "
+                                 f"for drops of radius {radius:.3g} (tolerance {tol:g}){later}", figures))
         else:
             text = (f"bulk compositions off the binodal by {final_gap:.3g} at t = {figures['time']:g}, the last "
                     f"separated step (tolerance {tol:g})")
@@ -351,8 +401,38 @@ def mixture_findings(steps, options) -> list:
                 text += f"; drop radius {radius:.3g}"
                 if np.isfinite(shift):
                     text += f", Gibbs-Thomson shift {shift:.3g}"
+            text += later
             found.append(Finding("binodal_gap", "warning", text, figures))
     return found
+
+
+def _level_outside(steps, options):
+    """Per step, whether the contour level lies outside the binodal pair (on the composition's scale:
+    the level of the indicator, or 1 minus it with ``--phase lower``); False where one phase is stable."""
+    level = float(options.level) if options.phase == "upper" else 1.0 - float(options.level)
+    lean = steps["binodal_lean"].to_numpy(dtype=float)
+    rich = steps["binodal_rich"].to_numpy(dtype=float)
+    return np.isfinite(lean) & np.isfinite(rich) & ~((lean < level) & (level < rich))
+
+
+def _level_finding(steps, options, outside):
+    """The warning that the contour level lies outside the binodal pair, with the level to give: the
+    middle of the pair at the last such step, on the indicator's scale."""
+    from .assemble import Finding
+
+    times = _times(steps, outside)
+    at = int(np.flatnonzero(outside)[-1])
+    lean, rich = float(steps["binodal_lean"].iat[at]), float(steps["binodal_rich"].iat[at])
+    middle = 0.5 * (lean + rich)
+    fix = middle if options.phase == "upper" else 1.0 - middle
+    text = (f"the contour level {float(options.level):g} lies outside the binodal pair {lean:.4g} to {rich:.4g} "
+            f"at {_temperature_text(steps, outside)} ({int(outside.sum())} step(s), t = {times[0]:g} to "
+            f"{times[-1]:g}): the contour may miss the interface between the two phases, and their bulk "
+            f"compositions go unmeasured or wrong there; give --level {fix:.4g} (the middle of the binodal pair "
+            f"at t = {times[-1]:g})")
+    return Finding("level_outside_binodal", "warning", text,
+                   {"steps": int(outside.sum()), "first_time": times[0], "last_time": times[-1],
+                    "level": float(options.level), "suggested_level": fix})
 
 
 def _finite(value):

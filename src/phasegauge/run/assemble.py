@@ -43,11 +43,11 @@ class Finding:
         ``width_cell_data_bias``, ``interface_near_boundary``, ``diffusivity_per_step``, ``free_energy_increase``,
         ``coarsening``,
         ``droplets_under_resolved``, ``steps_skipped``, the mixture findings
-        (``separated_one_phase``, ``mixed_inside_spinodal``, ``bulk_not_measured``, ``binodal_gap``,
-        ``binodal_gibbs_thomson``, ``binodal_reached``; see ``run/_mixture.py``), ``distance_error`` (a level
-        set no longer a distance function: ``run/_level_set_run.py``), ``tracking_unreliable``
-        (``run/_tracking_findings.py``), or ``warning`` (a
-        warning of the steps or the series, repeats collapsed).
+        (``separated_one_phase``, ``mixed_inside_spinodal``, ``bulk_not_measured``, ``level_outside_binodal``,
+        ``binodal_gap``, ``binodal_gibbs_thomson``, ``binodal_reached``; see ``run/_mixture.py``),
+        ``distance_error`` (a level set no longer a distance function: ``run/_level_set_run.py``),
+        ``tracking_unreliable`` (``run/_tracking_findings.py``), or ``warning`` (a warning of the steps or the
+        series, repeats collapsed).
     severity : {'warning', 'note'}
         ``warning``: the numbers need a closer look; ``note``: how to read them.
     text : str
