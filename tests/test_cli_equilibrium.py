@@ -99,3 +99,37 @@ def test_nrtl_alpha_that_is_no_number_is_an_option_error_in_the_api():
 
     with pytest.raises(OptionError, match="alpha must be a number, found 'abc'"):  # was a bare ValueError
         NrtlModel(tau_a=(1.0, 1.0), alpha="abc")
+
+
+@pytest.mark.parametrize("component, b", [("n-decane", "[2098.2665771665065, 4978.434198553327]"),
+                                          ("water", "[4978.434198553327, 2098.2665771665065]")])
+def test_text_output_keeps_six_significant_digits_near_a_pure_component(tmp_path, component, b):
+    # an NRTL pair like n-decane + water: 1e-8 of decane in water (regression: printed 0.000000); named
+    # the other way round the rich phase is 1 - 1e-8, printed with its distance from 1. Reference: the
+    # --json values, which Python's float() and round-trip repr carry exactly
+    import re
+
+    path = tmp_path / "pair.toml"
+    path.write_text(f'[model]\nkind = "nrtl"\ncomponent = "{component}"\ntau_b = {b}\nalpha = 0.2\n')
+    text = _run("equilibrium", path, "--temperature", 298.15).output
+    record = json.loads(_run("equilibrium", path, "--temperature", 298.15, "--json").output)
+    for name in ("binodal_lean", "binodal_rich"):
+        shown = re.search(rf"{name} ([0-9.e+-]+)( \(1 - ([0-9.e+-]+)\))?", text)
+        assert float(shown.group(1)) == pytest.approx(record[name], rel=5e-6)     # six significant digits
+        if record[name] > 1 - 1e-4:
+            assert float(shown.group(3)) == pytest.approx(1 - record[name], rel=5e-3)   # three of 1 - x
+    assert "0.000000" not in text
+
+
+def test_a_phase_diagram_with_temperatures_beyond_double_precision_is_written_with_them_empty(tmp_path):
+    # regular solution A = 10500 / T: the binodal is 6.3e-16 at 300 K (ln(x/(1-x)) = A (2x - 1), analytic);
+    # below about 290 K a phase is purer than a float carries: those rows are empty, one warning names why
+    path = tmp_path / "immiscible.toml"
+    path.write_text('[model]\nkind = "regular"\nA_b = 10500.0\n')
+    result = _run("equilibrium", path, "--temperatures", "250,400", "--count", 16, "-o", tmp_path / "d")
+    assert result.exit_code == 0, result.output
+    table = pd.read_csv(tmp_path / "d" / "phase_diagram.csv")
+    assert table["binodal_lean"].isna().to_numpy().tolist() == [True] * 5 + [False] * 11
+    assert result.output.count("within about 2e-16 of a pure component") == 1
+    findings = json.loads((tmp_path / "d" / "phase_diagram.json").read_text())["findings"]
+    assert any("not solved at 5 temperature(s) from 250 to 290 K" in f for f in findings)

@@ -269,6 +269,13 @@ def measure(path, field, value_range, phase, level, velocity, field_location, so
     _summary(result, out, quiet)
 
 
+def _mole_fraction(x) -> str:
+    """A mole fraction in six significant digits, and its distance from 1 where that is below 1e-4
+    (``0.999997`` alone would hide 2.6e-6 of water in a hydrocarbon, as ``0.000000`` hid 1e-8)."""
+    text = f"{x:.6g}"
+    return f"{text} (1 - {1 - x:.3g})" if 0.5 < x < 1 and 1 - x < 1e-4 else text
+
+
 def _summary(result, out, quiet):
     """What the run found, on stdout (``-q`` hides the progress display, not this)."""
     if hasattr(result, "pairs"):
@@ -352,15 +359,16 @@ def equilibrium(model_file, temperature, temperatures, count, as_json, out, over
         click.echo(f"model: {record['kind_of_model']}" + (f", x = mole fraction of {model.component}"
                                                           if model.component else ""))
         if record["state"] == "two phases":
-            click.echo(f"at {record['temperature']:g} K: two phases, binodal_lean {record['binodal_lean']:.6f}, "
-                       f"binodal_rich {record['binodal_rich']:.6f}")
-            click.echo(f"spinodal: {record['spinodal_lean']:.6f} to {record['spinodal_rich']:.6f}")
+            lean, rich = _mole_fraction(record["binodal_lean"]), _mole_fraction(record["binodal_rich"])
+            click.echo(f"at {record['temperature']:g} K: two phases, binodal_lean {lean}, binodal_rich {rich}")
+            lean, rich = _mole_fraction(record["spinodal_lean"]), _mole_fraction(record["spinodal_rich"])
+            click.echo(f"spinodal: {lean} to {rich}")
             if len(record["two_phase_regions"]) > 1:  # the pairs above are the widest and the outermost
-                shown = ", ".join(f"{a:.4g} to {b:.4g}" for a, b in record["two_phase_regions"])
+                shown = ", ".join(f"{_mole_fraction(a)} to {_mole_fraction(b)}" for a, b in record["two_phase_regions"])
                 click.echo(f"  note: {len(record['two_phase_regions'])} two-phase regions: {shown} (the binodal "
                            "above is the widest; a run's steps are measured against the one their mean composition "
                            "lies in)")
-                shown = ", ".join(f"{a:.4g} to {b:.4g}" for a, b in record["unstable_ranges"])
+                shown = ", ".join(f"{_mole_fraction(a)} to {_mole_fraction(b)}" for a, b in record["unstable_ranges"])
                 click.echo(f"  note: unstable ranges: {shown} (the spinodal above spans them and the stable gap "
                            "between)")
         else:

@@ -87,7 +87,7 @@ def test_the_equilibrium_command_names_both_regions():
     from phasegauge.cli import main
 
     text = CliRunner().invoke(main, ["equilibrium", MODEL, "--temperature", "100"]).output
-    assert "note: 2 two-phase regions: 0.0003922 to 0.5188, 0.5345 to 0.9999" in text
+    assert "note: 2 two-phase regions: 0.00039219 to 0.518846, 0.534473 to 0.999902 (1 - 9.82e-05)" in text
     record = json.loads(CliRunner().invoke(main, ["equilibrium", MODEL, "--temperature", "100", "--json"]).output)
     assert len(record["two_phase_regions"]) == 2 and len(record["unstable_ranges"]) == 2
     one = json.loads(CliRunner().invoke(main, ["equilibrium", MODEL, "--temperature", "298.15", "--json"]).output)

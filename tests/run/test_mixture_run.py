@@ -351,3 +351,25 @@ def test_a_double_well_off_the_mapped_scale_is_refused(tmp_path):
     with pytest.raises(OptionError, match=r"bulk values \(-1, 1\) lie outside \[0, 1\].*lean = 0, rich = 1"):
         measure(path, "x", range=(-1, 1), model=DoubleWellModel(lean=-1.0, rich=1.0), temperature=300.0,
                 analyses=("interface",))
+
+
+def test_a_run_whose_phase_diagram_reaches_an_unsolvable_temperature_finishes_with_its_tables(tmp_path):
+    # A = 10500 / T: at 300 K the binodal is 6.3e-16 (the root of ln(x/(1-x)) = A (2x - 1), analytic, by
+    # scipy's brentq); the report's diagram spans 255-345 K, and below about 290 K a phase is purer than a
+    # float carries: those temperatures are left empty with one warning (the run was refused whole)
+    from scipy.optimize import brentq
+
+    a = 10500.0 / 300.0
+    lean = brentq(lambda x: np.log(x) - np.log1p(-x) - a * (2 * x - 1), 1e-300, 0.01, xtol=1e-310, rtol=1e-15)
+    path = _slab_series(tmp_path, [(lean, 1 - lean)] * 2)
+    model = tmp_path / "immiscible.toml"
+    model.write_text('[model]\nkind = "regular"\ncomponent = "oil"\nA_b = 10500.0\n')
+    out = tmp_path / "out"
+    res = CliRunner().invoke(main, ["measure", path, "-f", "x", "--model", str(model), "--temperature", "300",
+                                    "-o", str(out), "--quiet"])
+    assert res.exit_code == 0, res.output
+    steps = pd.read_csv(out / "steps.csv")
+    assert steps["binodal_lean"].iat[0] == pytest.approx(lean, rel=1e-9)
+    assert (out / "report.html").exists() and (out / "phase_compositions.png").exists()
+    assert res.output.count("the binodal was not solved at") == 1
+    assert "within about 2e-16 of a pure component" in res.output

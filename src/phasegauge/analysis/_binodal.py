@@ -1,9 +1,10 @@
 """Spinodal, binodal and critical points of a binary liquid mixture.
 
 The binodal solves isoactivity, ``x_a gamma_1(x_a) = x_b gamma_1(x_b)`` and the same for
-component 2, by Newton's method in logit variables ``u = ln(x / (1 - x))`` (so compositions
-near 0 or 1 keep their digits), started outside the spinodal roots and kept outside them
-(which rejects the trivial root ``x_a = x_b``). Each pair is then confirmed globally: the
+component 2, by Newton's method in logit variables ``u = ln(x / (1 - x))`` (compositions near
+0 or 1 keep their digits: ``1 - x`` is carried as ``sigmoid(-u)``; converged on the step in u;
+near a critical point in moments of the curvature), started outside the spinodal roots and kept
+outside them (which rejects the trivial root ``x_a = x_b``). Each pair is then confirmed globally: the
 common tangent must lie below ``Delta g_mix / RT`` everywhere (a tangent-plane test on a
 dense grid); a pair that fails is solved again from the lower convex hull of the grid.
 All temperatures are solved at once (numpy arrays over temperature).
@@ -18,18 +19,27 @@ Fluid Phase Equilibria 9, 1-19 (tangent-plane test).
 from __future__ import annotations
 
 import math
+import warnings
 from dataclasses import dataclass
 
 import numpy as np
 
-from ..errors import AnalysisError, OptionError
+from ..errors import AnalysisError, OptionError, PhasegaugeWarning
 from ..model.mixture_models import DoubleWellModel
 
 __all__ = ["BinaryEquilibrium", "CriticalPoint", "spinodal", "binodal", "critical_points", "phase_diagram",
            "equilibrium_at", "all_regions", "other_regions", "region_of"]
 
 _STEP = 1e-20            # complex step
-_U_LIMIT = 36.0          # logit bound: x down to about 2e-16
+_U_LIMIT = 36.0          # logit bound: x down to about 2e-16 (and 1 - x, the nearest a float comes to 1)
+_NARROW = 1.0            # pairs closer than this in u are solved in moments of the curvature (_newton_step)
+_NODES = 16              # Gauss-Legendre nodes of that integral (exact to round-off over u-widths below 1)
+#: Newton's step in u = logit(x) below which the binodal has converged: x and 1 - x settled to this relative
+#: precision (our threshold; the step's round-off is about 1e-14 away from a critical point)
+SETTLED = 1e-10
+#: a Newton step no smaller than the one before (the round-off floor) is taken as converged when below this
+#: share of the pair's width in u (our threshold; reached only within about 1e-10 of a critical point)
+NEAR_CRITICAL_SHARE = 1e-4
 
 
 def _grid_x():
@@ -58,11 +68,53 @@ def _stability(model, x, t):
     return 1.0 + x * (1 - x) * slope
 
 
-def _potentials(model, x, t):
-    """mu_1, mu_2 (over RT) and their derivatives in u = logit(x)."""
-    z = x + 1j * _STEP * x * (1 - x)
-    mu1, mu2 = model.chemical_potentials(z, t)
+def _potentials(model, u, t):
+    """mu_1, mu_2 (over RT) and their derivatives in u = logit(x), at x = sigmoid(u).
+
+    ``1 - x`` is carried as ``sigmoid(-u)``: near x = 1 the difference ``1 - x`` keeps only
+    ``1e-16 / (1 - x)`` of its digits, which left Delta mu_2 a noise of ``1e-16 / (1 - x)``.
+    """
+    x, x2 = _sigmoid(u), _sigmoid(-u)
+    step = 1j * _STEP * x * x2
+    mu1, mu2 = model.chemical_potentials(x + step, t, x2=x2 - step)
     return mu1.real, mu2.real, np.imag(mu1) / _STEP, np.imag(mu2) / _STEP
+
+
+def _newton_step(model, t, ua, ub):
+    """Newton's step (du_a, du_b) on isoactivity, mu_i(a) = mu_i(b) for i = 1, 2, in u = logit(x).
+
+    A pair closer than :data:`_NARROW` in u (near a critical point) is solved in the moments of the
+    curvature q = x (1 - x) g'' (g = Delta g_mix / RT; q dx / (x (1 - x)) = g'' dx) over [x_a, x_b],
+    integrated by Gauss-Legendre in u: ``S = -int g'' dx`` (the slopes' difference, Delta (mu_1 - mu_2))
+    and ``T = -int (c - x) g'' dx`` (c the pair's middle: the common tangent). Differences of the
+    potentials carry a round-off of 1e-16 where they shrink like (x_b - x_a)^3, and the Jacobian's
+    determinant as a difference of products like (x_b - x_a) q^2: there the pair's middle wandered by
+    1e-16 / (x_b - x_a)^2 and the step failed.
+    """
+    m1a, m2a, d1a, d2a = _potentials(model, ua, t)
+    m1b, m2b, d1b, d2b = _potentials(model, ub, t)
+    f1, f2 = m1a - m1b, m2a - m2b
+    det = -d1a * d2b + d1b * d2a
+    det = np.where(np.abs(det) < 1e-300, 1e-300, det)
+    dua = (f1 * d2b - d1b * f2) / det      # J (du_a, du_b) = -f, J = [[d1a, -d1b], [d2a, -d2b]]
+    dub = (d2a * f1 - d1a * f2) / det
+    narrow = np.flatnonzero(ub - ua < _NARROW)
+    if narrow.size:
+        nodes, weights = np.polynomial.legendre.leggauss(_NODES)
+        a, b, tn = ua[narrow], ub[narrow], t[narrow]
+        middle, half = 0.5 * (a + b), 0.5 * (b - a)
+        x = _sigmoid(middle[:, None] + half[:, None] * nodes[None, :])
+        q = _stability(model, x, tn[:, None])
+        xa, xb = _sigmoid(a), _sigmoid(b)
+        c = 0.5 * (xa + xb)
+        slopes = -half * (q @ weights)
+        tangent = -half * (((c[:, None] - x) * q) @ weights)
+        # with d mu_1 / du = (1 - x) q and d mu_2 / du = -x q, the determinant is q_a q_b (x_b - x_a)
+        width = np.maximum(xb - xa, 1e-300)
+        with np.errstate(divide="ignore", invalid="ignore"):
+            dua[narrow] = -(tangent + (xb - c) * slopes) / (_stability(model, xa, tn) * width)
+            dub[narrow] = -(tangent + (xa - c) * slopes) / (_stability(model, xb, tn) * width)
+    return dua, dub
 
 
 @dataclass(frozen=True)
@@ -181,27 +233,40 @@ def _bracketed_root(f, a, b, iterations=100):
 
 
 def _newton(model, t, ua, ub, ua_max, ub_min, iterations=80):
-    """Isoactivity in logit variables, u_a kept below ua_max and u_b above ub_min."""
+    """Isoactivity in logit variables, u_a kept below ua_max and u_b above ub_min.
+
+    Converged where Newton's own step (before any bound or damping) is below :data:`SETTLED` in u (each
+    composition and its complement settled to that relative precision), or near a critical point has
+    reached its round-off floor below :data:`NEAR_CRITICAL_SHARE` of the pair's width. A residual test
+    cannot serve: near a critical point Delta mu shrinks like (x_b - x_a)^3 (the start passed 1e-11);
+    near a pure component the potentials' round-off exceeded it.
+
+    Returns
+    -------
+    ua, ub : ndarray, the logits of the pair (last iterate where not converged)
+    ok : ndarray of bool, converged
+    """
+    ua, ub = np.array(ua, dtype=float), np.array(ub, dtype=float)
     ok = np.zeros(t.shape, dtype=bool)
+    before = np.full(t.shape, np.inf)
     for _ in range(iterations):
-        xa, xb = _sigmoid(ua), _sigmoid(ub)
-        m1a, m2a, d1a, d2a = _potentials(model, xa, t)
-        m1b, m2b, d1b, d2b = _potentials(model, xb, t)
-        f1, f2 = m1a - m1b, m2a - m2b
-        ok = (np.abs(f1) < 1e-11) & (np.abs(f2) < 1e-11)
-        if ok.all():
-            break
-        det = -d1a * d2b + d1b * d2a
-        det = np.where(np.abs(det) < 1e-300, 1e-300, det)
-        dua = (f1 * d2b - d1b * f2) / det      # J (du_a, du_b) = -f, J = [[d1a, -d1b], [d2a, -d2b]]
-        dub = (d2a * f1 - d1a * f2) / det
+        dua, dub = _newton_step(model, t, ua, ub)
+        step = np.maximum(np.abs(dua), np.abs(dub))
+        # near a critical point the round-off of the pair's middle grows like 1e-15 / (u_b - u_a): there
+        # a step that no longer shrinks is that floor, taken when below a share of the pair's width
+        floor = (step <= NEAR_CRITICAL_SHARE * (ub - ua)) & (step >= 0.5 * before)
+        settled = ~ok & ((step <= SETTLED) | floor) & (ub - ua > SETTLED)    # a pair, not the trivial root
+        before = step
         dua, dub = np.clip(dua, -2.0, 2.0), np.clip(dub, -2.0, 2.0)
         new_a = ua + np.where(ok, 0.0, dua)
         new_b = ub + np.where(ok, 0.0, dub)
         ua = np.minimum(np.where(new_a > ua_max, 0.5 * (ua + ua_max), new_a), ua_max)
         ub = np.maximum(np.where(new_b < ub_min, 0.5 * (ub + ub_min), new_b), ub_min)
         ua, ub = np.clip(ua, -_U_LIMIT, _U_LIMIT), np.clip(ub, -_U_LIMIT, _U_LIMIT)
-    return _sigmoid(ua), _sigmoid(ub), ok
+        ok = ok | settled
+        if ok.all():
+            break
+    return ua, ub, ok
 
 
 def _tangent_gap(model, t, xa, xb):
@@ -274,51 +339,95 @@ def binodal(model, temperature, *, spinodal_pair=None):
     Raises
     ------
     AnalysisError
-        Newton's method failed from both starts (spinodal and convex hull).
+        Newton's method failed from both starts (spinodal and convex hull) at some temperature, or
+        a coexisting composition lies nearer a pure component than a float carries (about 2e-16).
     """
     t = _temperatures(temperature)
+    lean, rich, confirmed, cause = _solve_binodal(model, t, spinodal_pair)
+    if cause.any():
+        what, fix = _unsolved_text(t, cause)
+        raise AnalysisError(what, fix=fix)
+    return lean, rich, confirmed
+
+
+#: why the binodal was not solved at a temperature, and the fix (the codes of _solve_binodal's ``cause``,
+#: from 1; {celsius} is filled in below 200 K)
+_CAUSES = (("Newton's method on isoactivity settled neither from outside the spinodal nor from the free energy's "
+            "convex hull", "check the model parameters and the temperature{celsius}; report the model file if they "
+            "are right"),
+           ("a coexisting composition lies within about 2e-16 of a pure component (x = 0 or 1), nearer than a "
+            "double-precision mole fraction carries", "check the model parameters and the temperature{celsius} (the "
+            "phases of this model are pure to double precision)"),
+           ("the temperature lies within round-off of a critical point (an unstable range narrower than 1e-7), "
+            "where the pair's middle is lost in the round-off of the free energy", "take a temperature a relative "
+            "1e-13 or more from the critical temperature"))
+#: an unstable range narrower than this (in mole fraction) is within round-off of a critical point (the
+#: binodal converges down to about 7e-8, a regular solution 1e-14 above A = 2)
+_ROUND_OFF_SPINODAL = 1e-7
+
+
+def _solve_binodal(model, t, spinodal_pair=None):
+    """:func:`binodal`'s work: ``lean, rich, confirmed`` and, per temperature, ``cause``: 0 where solved,
+    else (NaN pair) 1 + the index into :data:`_CAUSES`."""
+    cause = np.zeros(t.shape, dtype=int)
     if isinstance(model, DoubleWellModel):
-        return np.full(t.shape, model.lean), np.full(t.shape, model.rich), np.ones(t.shape, dtype=bool)
+        return np.full(t.shape, model.lean), np.full(t.shape, model.rich), np.ones(t.shape, dtype=bool), cause
     s_lean, s_rich = spinodal(model, t) if spinodal_pair is None else spinodal_pair
     lean = np.full(t.shape, np.nan)
     rich = np.full(t.shape, np.nan)
     confirmed = np.ones(t.shape, dtype=bool)
     rows = np.flatnonzero(np.isfinite(s_lean))
     if rows.size == 0:
-        return lean, rich, confirmed
+        return lean, rich, confirmed, cause
     tt = t[rows]
     ua_max, ub_min = _logit(s_lean[rows]), _logit(s_rich[rows])
     middle = 0.5 * (ua_max + ub_min)
     half = np.maximum(0.5 * (ub_min - ua_max), 1e-6)
-    xa, xb, ok = _newton(model, tt, middle - 2.0 * half, middle + 2.0 * half, ua_max, ub_min)
+    ua, ub, ok = _newton(model, tt, middle - 2.0 * half, middle + 2.0 * half, ua_max, ub_min)
+    limit = _at_limit(ua, ub)
+    xa, xb = _sigmoid(ua), _sigmoid(ub)
     gap = np.where(ok, _tangent_gap(model, tt, xa, xb), -1.0)
     good = ok & (gap > -1e-9)
     for k in np.flatnonzero(~good):   # fall back to the bridges of the convex hull of the grid
         one = tt[k:k + 1]
         for a0, b0, s_a, s_b in _hull_bridges(model, tt[k]):
+            if b0 - a0 <= MIN_REGION:   # the round-off of the free energy near a pure component
+                continue
             a, b, done = _newton(model, one, _logit(np.array([a0])), _logit(np.array([b0])),
                                  _logit(np.array([s_a])), _logit(np.array([s_b])))
+            limit[k] |= _at_limit(a, b)[0]
+            a, b = _sigmoid(a), _sigmoid(b)
             if done[0] and _tangent_gap(model, one, a, b)[0] > -1e-9:
                 xa[k], xb[k], ok[k], good[k] = a[0], b[0], True, True
                 break
-    if not ok.all():
-        bad = tt[~ok]
-        celsius = (f"; temperatures are in kelvin (if {bad[0]:g} is in degrees Celsius, give {bad[0] + 273.15:g})"
-                   if bad[0] < 200.0 else "")
-        raise AnalysisError(f"the binodal did not converge at T = {bad[0]:g} K ({bad.size} temperature(s); "
-                            "coexisting compositions within about 1e-12 of a pure component are beyond it)",
-                            fix=f"check the model parameters and the temperature{celsius}; report the model file "
-                                "if they are right")
-    lean[rows], rich[rows], confirmed[rows] = xa, xb, good
-    return lean, rich, confirmed
+    lean[rows] = np.where(ok, xa, np.nan)
+    rich[rows] = np.where(ok, xb, np.nan)
+    confirmed[rows] = good | ~ok
+    critical = s_rich[rows] - s_lean[rows] < _ROUND_OFF_SPINODAL
+    cause[rows] = np.where(ok, 0, np.where(limit, 2, np.where(critical, 3, 1)))
+    return lean, rich, confirmed, cause
+
+
+def _at_limit(ua, ub):
+    """Newton's pair ended at the logit bound (a composition within about 2e-16 of a pure component)."""
+    return (np.abs(ua) >= _U_LIMIT - 1e-9) | (np.abs(ub) >= _U_LIMIT - 1e-9)
+
+
+def _unsolved_text(t, cause) -> tuple:
+    """What and fix where the binodal was not solved (``cause`` > 0), naming the cause(s)."""
+    bad = t[cause > 0]
+    where = f"T = {bad[0]:g} K" if bad.size == 1 else f"{bad.size} temperatures from {bad.min():g} to {bad.max():g} K"
+    codes = np.unique(cause[cause > 0])
+    celsius = (f"; temperatures are in kelvin (if {bad[0]:g} is in degrees Celsius, give {bad[0] + 273.15:g})"
+               if bad.min() < 200.0 else "")
+    what = "; or ".join(_CAUSES[k - 1][0] for k in codes)
+    fix = "; or ".join(_CAUSES[k - 1][1].format(celsius=celsius) for k in codes)
+    return f"the binodal was not solved at {where}: {what}", fix
 
 
 #: a bridge of the grid's hull narrower than this (in mole fraction) is the round-off of the free energy
 #: near a pure component, not a two-phase region
 MIN_REGION = 1e-6
-#: a refined end of another two-phase region is taken when it lies this near its grid bridge's end (about
-#: the grid's spacing in the middle, 0.004)
-_REFINE_STEP = 0.01
 
 
 def other_regions(model, temperature: float, lean: float, rich: float) -> list:
@@ -332,13 +441,10 @@ def other_regions(model, temperature: float, lean: float, rich: float) -> list:
         if not ((b <= lean or a >= rich) and b - a > MIN_REGION):
             continue
         one = np.array([t])
-        xa, xb, done = _newton(model, one, _logit(np.array([a])), _logit(np.array([b])),
+        ua, ub, done = _newton(model, one, _logit(np.array([a])), _logit(np.array([b])),
                                _logit(np.array([s_a])), _logit(np.array([s_b])))
-        # Newton's own test (isoactivity to 1e-11) can fail near a pure component where it has found the
-        # pair: taken too when it stays within a grid spacing of the bridge and is a common tangent
-        near = (np.isfinite(xa[0]) and np.isfinite(xb[0])
-                and abs(xa[0] - a) < _REFINE_STEP and abs(xb[0] - b) < _REFINE_STEP)
-        if (done[0] or near) and xb[0] - xa[0] > MIN_REGION and _tangent_gap(model, one, xa, xb)[0] > -1e-9:
+        xa, xb = _sigmoid(ua), _sigmoid(ub)
+        if done[0] and xb[0] - xa[0] > MIN_REGION and _tangent_gap(model, one, xa, xb)[0] > -1e-9:
             a, b = xa[0], xb[0]
         found.append((float(a), float(b)))
     return found
@@ -468,6 +574,10 @@ def critical_points(model, *, temperatures=(1.0, 5000.0), samples=400):
 def phase_diagram(model, temperatures):
     """Binodal and spinodal against temperature.
 
+    A temperature where the binodal does not converge (see :func:`binodal`) is left NaN with
+    ``solved`` false, and one :class:`~phasegauge.errors.PhasegaugeWarning` names them and the cause:
+    a diagram over a range is not refused for one temperature at its edge.
+
     Parameters
     ----------
     model : NrtlModel, RegularSolutionModel or DoubleWellModel
@@ -476,10 +586,14 @@ def phase_diagram(model, temperatures):
     Returns
     -------
     dict of ndarray of shape (n,)
-        ``temperature, binodal_lean, binodal_rich, spinodal_lean, spinodal_rich, confirmed``.
+        ``temperature, binodal_lean, binodal_rich, spinodal_lean, spinodal_rich, confirmed, solved``.
     """
     t = _temperatures(temperatures)
     s = spinodal(model, t)
-    lean, rich, confirmed = binodal(model, t, spinodal_pair=s)
+    lean, rich, confirmed, cause = _solve_binodal(model, t, spinodal_pair=s)
+    if cause.any():
+        what, _ = _unsolved_text(t, cause)
+        warnings.warn(PhasegaugeWarning(f"{what}; the phase diagram leaves the binodal empty (NaN) there"),
+                      stacklevel=2)
     return {"temperature": t, "binodal_lean": lean, "binodal_rich": rich, "spinodal_lean": s[0],
-            "spinodal_rich": s[1], "confirmed": confirmed}
+            "spinodal_rich": s[1], "confirmed": confirmed, "solved": cause == 0}

@@ -79,7 +79,7 @@ class _BinaryActivityModel:
 
     component: str
 
-    def ln_gamma(self, x, temperature):  # pragma: no cover - abstract
+    def ln_gamma(self, x, temperature, x2=None):  # pragma: no cover - abstract
         raise NotImplementedError
 
     def excess_gibbs(self, x, temperature):  # pragma: no cover - abstract
@@ -99,10 +99,16 @@ class _BinaryActivityModel:
         """
         return _mixing_entropy_term(x) + self.excess_gibbs(x, temperature)
 
-    def chemical_potentials(self, x, temperature):
-        """(mu_1 - mu_1 pure) / RT and (mu_2 - mu_2 pure) / RT: ln(x gamma_1), ln((1 - x) gamma_2)."""
-        ln_g1, ln_g2 = self.ln_gamma(x, temperature)
-        return np.log(x) + ln_g1, np.log(1 - x) + ln_g2
+    def chemical_potentials(self, x, temperature, x2=None):
+        """(mu_1 - mu_1 pure) / RT and (mu_2 - mu_2 pure) / RT: ln(x gamma_1), ln((1 - x) gamma_2).
+
+        ``x2`` is the mole fraction of component 2, ``1 - x``, where the caller knows it without the
+        cancellation of ``1 - x`` (near x = 1 that difference keeps only ``1e-16 / (1 - x)`` of its
+        digits; the binodal solver passes ``sigmoid(-u)`` beside ``x = sigmoid(u)``); default ``1 - x``.
+        """
+        x2 = 1 - x if x2 is None else x2
+        ln_g1, ln_g2 = self.ln_gamma(x, temperature, x2)
+        return np.log(x) + ln_g1, np.log(x2) + ln_g2
 
     def mixing_gibbs_slope(self, x, temperature):
         """d(Delta g_mix / RT)/dx = ln(x gamma_1) - ln((1 - x) gamma_2) (Gibbs-Duhem)."""
@@ -160,12 +166,13 @@ class NrtlModel(_BinaryActivityModel):
             out.append(value)
         return tuple(out)
 
-    def ln_gamma(self, x, temperature):
-        """ln gamma_1, ln gamma_2 at mole fraction ``x`` of component 1 (Renon & Prausnitz 1968, eq. 15)."""
+    def ln_gamma(self, x, temperature, x2=None):
+        """ln gamma_1, ln gamma_2 at mole fraction ``x`` of component 1 (Renon & Prausnitz 1968, eq. 15);
+        ``x2``: that of component 2 where known without cancellation (default ``1 - x``)."""
         tau12, tau21 = self.tau(temperature)
         g12, g21 = np.exp(-self.alpha * tau12), np.exp(-self.alpha * tau21)
         x1 = x
-        x2 = 1 - x
+        x2 = 1 - x if x2 is None else x2
         d1 = x1 + x2 * g21
         d2 = x2 + x1 * g12
         ln_g1 = x2 ** 2 * (tau21 * (g21 / d1) ** 2 + tau12 * g12 / d2 ** 2)
@@ -211,10 +218,10 @@ class RegularSolutionModel(_BinaryActivityModel):
         """A = a + b / T (dimensionless)."""
         return self.A_a + self.A_b / np.asarray(temperature, dtype=float)
 
-    def ln_gamma(self, x, temperature):
-        """ln gamma_1 = A (1 - x)^2, ln gamma_2 = A x^2 (Margules)."""
+    def ln_gamma(self, x, temperature, x2=None):
+        """ln gamma_1 = A (1 - x)^2, ln gamma_2 = A x^2 (Margules); ``x2`` as for :class:`NrtlModel`."""
         a = self.interaction(temperature)
-        return a * (1 - x) ** 2, a * x ** 2
+        return a * (1 - x if x2 is None else x2) ** 2, a * x ** 2
 
     def excess_gibbs(self, x, temperature):
         """g_E / RT = A x (1 - x)."""

@@ -94,12 +94,16 @@ def phase_diagram_run(model, temperatures, *, out, count=200, overwrite=False, p
     t = np.linspace(lo, hi, int(count))
     table = phase_diagram(model, t)
     critical = _critical_records(model, (lo, hi))
-    separated = np.isfinite(table["binodal_lean"])
+    separated = np.isfinite(table["binodal_lean"]) | ~table["solved"]   # not solved: a split (it has a spinodal)
     findings = []
     if not separated.any():
         findings.append(f"one stable phase at every temperature from {lo:g} to {hi:g} K (no split in the range)")
     elif separated.all():
         findings.append(f"two phases at every temperature from {lo:g} to {hi:g} K (no critical point in the range)")
+    if not table["solved"].all():
+        unsolved = t[~table["solved"]]
+        findings.append(f"the binodal was not solved at {unsolved.size} temperature(s) from {unsolved[0]:g} to "
+                        f"{unsolved[-1]:g} K (left empty; the warning names the cause)")
     if not table["confirmed"].all():
         findings.append(f"{int((~table['confirmed']).sum())} binodal pair(s) failed the global stability test")
     others = _other_regions(model, table)
