@@ -12,10 +12,11 @@ from __future__ import annotations
 
 import math
 import os
+import warnings
 
 import numpy as np
 
-from ..errors import OptionError
+from ..errors import OptionError, PhasegaugeWarning
 from ..model._numbers import finite_number
 
 __all__ = ["normalize_mixture", "mixture_step", "mixture_findings", "mixture_report_arrays",
@@ -463,7 +464,11 @@ def mixture_report_arrays(steps, options, *, count: int = 120) -> dict | None:
     from ..analysis.thermo import phase_diagram
 
     lo, hi = 0.85 * float(t.min()), 1.15 * float(t.max())
-    table = phase_diagram(options.model, np.linspace(lo, hi, count))
+    # the report's backdrop around the run's temperatures: a temperature of it that does not solve is
+    # left empty in the drawing without a warning (the steps' own temperatures are judged in the steps)
+    with warnings.catch_warnings():
+        warnings.simplefilter("ignore", PhasegaugeWarning)
+        table = phase_diagram(options.model, np.linspace(lo, hi, count))
     arrays = {name: np.asarray(table[name], dtype=float) for name in
               ("temperature", "binodal_lean", "binodal_rich", "spinodal_lean", "spinodal_rich")}
     arrays["component"] = getattr(options.model, "component", "") or "the component"
