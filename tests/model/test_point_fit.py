@@ -78,3 +78,29 @@ def test_bad_cells_are_left_out_of_the_fit():
     interior = np.all((mesh.coordinates > 1e-9) & (mesh.coordinates < 1 - 1e-9), axis=1)
     # a linear field is still rebuilt exactly from the good cells around each interior point (analytic)
     np.testing.assert_allclose(points[interior], (mesh.coordinates @ g)[interior], atol=1e-10)
+
+
+@pytest.mark.parametrize("dimension", [2, 3])
+def test_the_fit_is_taken_alike_in_any_length_unit(dimension):
+    # the same jittered mesh in metres and in millimetres (and scaled up): a field linear in space on
+    # its cells is fitted exactly at every point whose fit is well posed, and the same points are well
+    # posed in every unit (the test of the normal matrix reads no length scale; it sent every point of
+    # cells under 0.03 units in 3D, 0.003 in 2D, to the corners' mean). Reference: the linear field
+    # itself (analytic)
+    from phasegauge.model.mesh import Mesh
+
+    base = grid_mesh((12,) * dimension, kind="hexahedron" if dimension == 3 else "quad", jitter=0.2, seed=5)
+    posed_sets, errors = [], []
+    for scale in (1.0, 1e-3, 1e-5, 1e3):
+        mesh = Mesh(base.points * scale, [(b.cell_type, b.connectivity) for b in base.blocks])
+        slope = np.arange(1, dimension + 1) / scale
+        values = mesh.cell_to_point(mesh.cell_centroids[:, :dimension] @ slope, method="linear")
+        exact = mesh.coordinates[:, :dimension] @ slope
+        fit = _conversions.point_fit(mesh)
+        posed = np.zeros(mesh.n_points, dtype=bool)
+        posed[fit.points[fit.posed]] = True
+        posed_sets.append(posed)
+        errors.append(np.abs(values - exact)[posed].max())
+    assert all(np.array_equal(posed_sets[0], p) for p in posed_sets[1:])
+    assert posed_sets[0].mean() > 0.5
+    assert max(errors) < 1e-9 * dimension * 12

@@ -10,7 +10,7 @@ with eps21 = phi2 - phi1, eps32 = phi3 - phi2, s = sign(eps32 / eps21) and
 r21 = h2 / h1, r32 = h3 / h2. Its right side rises in p from ln r32 / ln r21
 (s = +1) or 1 (s = -1) at p -> 0 without bound, so it has one positive root when
 |eps32 / eps21| lies above that limit, found by bracketing (``scipy.optimize.brentq``),
-and none otherwise: the values then move apart as the mesh is refined (divergent).
+and none otherwise: the values then do not converge as the mesh is refined (divergent).
 Everything here is arrays in, arrays out.
 """
 

@@ -56,9 +56,9 @@ def near_interface(mesh: Mesh, phi: np.ndarray, reach: float = NEAR_CELLS) -> np
     phi = 0, increasing cell numbers. The distance is measured on the mesh, not read from phi (a
     field that is no distance, squeezed or clipped to a narrow band, cannot say itself which cells
     are near): to the nearest point where phi = 0 on an edge of a cell phi changes sign across
-    (linear along the edge), searched from the corners of the cells within ``ceil(reach) + 1`` rings
-    of shared corners around those cells. On a straight interface the nearest such point lies within
-    half an edge of the nearest point of the interface."""
+    (linear along the edge), from every point within ``reach`` of the largest cell's size. On a
+    straight interface the nearest such point lies within half an edge of the nearest point of the
+    interface."""
     from scipy.spatial import cKDTree
 
     low, high = corner_extremes(mesh, phi)
@@ -77,15 +77,9 @@ def near_interface(mesh: Mesh, phi: np.ndarray, reach: float = NEAR_CELLS) -> np
             t = (pa[on] / (pa[on] - pb[on]))[:, None]
             crossings.append(X[conn[on, a]] + t * (X[conn[on, b]] - X[conn[on, a]]))
     tree = cKDTree(np.concatenate(crossings))
-    chosen = cut
-    for _ in range(int(np.ceil(reach)) + 1):  # the cells that may hold such a corner
-        marked = np.zeros(mesh.n_points, dtype=bool)
-        for block, start, stop in zip(mesh.blocks, mesh.block_offsets[:-1], mesh.block_offsets[1:]):
-            marked[block.connectivity[chosen[start:stop]].ravel()] = True
-        chosen = corner_extremes(mesh, marked.astype(np.float64)).high > 0
-    candidates = np.flatnonzero(chosen)
-    points = np.flatnonzero(marked)
-    distance = np.full(mesh.n_points, np.inf)
-    distance[points] = tree.query(X[points])[0]
-    nearest = corner_extremes(mesh, distance, cells=candidates).low
-    return candidates[nearest <= reach * mesh.cell_sizes[candidates]]
+    # every point within reach of the largest cell: a coarse cell beside a refined band counts by its
+    # own size (rings of cells from the cut ones would stop at the fine cells' reach)
+    size = mesh.cell_sizes
+    distance = tree.query(X, distance_upper_bound=reach * float(np.nanmax(size)))[0]
+    nearest = corner_extremes(mesh, distance).low
+    return np.flatnonzero(nearest <= reach * size)

@@ -82,10 +82,12 @@ class PointFit(NamedTuple):
 
 
 def _well_posed(A, count, d):
-    """A well-posed fit needs more cells than unknowns and a matrix far from singular."""
-    diag = np.einsum("nii->n", A)
+    """A well-posed fit needs more cells than unknowns and a matrix far from singular: its determinant
+    above 1e-10 of the product of its diagonal (at most that product for a positive definite matrix,
+    and the same share in any length unit: the test reads no length scale)."""
+    diag = np.einsum("nii->ni", A)
     det = np.linalg.det(A)
-    return (count > d + 1) & (np.abs(det) > 1e-10 * np.maximum(diag, 1e-300) ** (d + 1))
+    return (count > d + 1) & (np.abs(det) > 1e-10 * np.maximum(np.prod(diag, axis=1), 1e-300))
 
 
 def _stencil(mesh: Mesh, keep: bool = True):

@@ -40,23 +40,12 @@ def level_set_points(mesh: Mesh, phi_cell: np.ndarray) -> np.ndarray:
     if bad.size:  # (the corners' mean where even two rings are ill-posed)
         ring = _two_ring_values(mesh, phi, good, bad)
         out[bad] = np.where(np.isfinite(ring), ring, mean[bad])
-    # near the interface the linear fit's intercept carries half the curvature times the spread of the
-    # centroids about the point (phi + h^2/8 laplacian(phi) on a grid: a drop's radius h^2/(4R) short):
-    # there the fit is quadratic, through the cells two rings out, where that is well posed
-    low, high = corner_extremes(mesh, out)
-    cut = (low < 0.0) & (high > 0.0)
-    if cut.any():
-        a = mesh.incidence  # (cells, points): the cut cells' corners, the cells around them, their corners
-        near = np.flatnonzero(a.T @ (a @ (a.T @ cut.astype(np.float64)) > 0) > 0)
-        curved = _two_ring_values(mesh, phi, good, near, quadratic=True)
-        out[near] = np.where(np.isfinite(curved), curved, out[near])
     return out
 
 
-def _two_ring_values(mesh: Mesh, phi: np.ndarray, good: np.ndarray, points: np.ndarray, *,
-                     quadratic: bool = False) -> np.ndarray:
-    """The linear (or ``quadratic``) least-squares fit through the good cells that share a point with a
-    cell of each of ``points``, evaluated there (NaN where even that is ill-posed)."""
+def _two_ring_values(mesh: Mesh, phi: np.ndarray, good: np.ndarray, points: np.ndarray) -> np.ndarray:
+    """The linear least-squares fit through the good cells that share a point with a cell of each of
+    ``points``, evaluated there (NaN where even that is ill-posed)."""
     a = mesh.incidence  # (cells, points)
     near = a[:, points].T.tocsr()  # the points' cells
     ring = ((near @ a) @ a.T).tocsr()  # cells sharing a point with them
@@ -64,16 +53,10 @@ def _two_ring_values(mesh: Mesh, phi: np.ndarray, good: np.ndarray, points: np.n
     keep = good[ring.indices]
     rows, cells = rows[keep], ring.indices[keep]
     dim = mesh.dimension
-    offsets = mesh.cell_centroids[cells] - mesh.coordinates[points][rows]
-    if quadratic:  # offsets in units of the cells' sizes: the normal matrix's terms of one order
-        offsets = offsets / mesh.cell_sizes[cells][:, None]
-        offsets = np.c_[offsets, np.stack([offsets[:, i] * offsets[:, j] for i in range(dim)
-                                           for j in range(i, dim)], axis=1)]
-    basis = np.c_[np.ones(cells.size), offsets]  # (pairs, terms)
-    terms = basis.shape[1]
-    normal = np.zeros((points.size, terms, terms))
+    basis = np.c_[np.ones(cells.size), mesh.cell_centroids[cells] - mesh.coordinates[points][rows]]  # (pairs, dim + 1)
+    normal = np.zeros((points.size, dim + 1, dim + 1))
     np.add.at(normal, rows, basis[:, :, None] * basis[:, None, :])
-    right = np.zeros((points.size, terms))
+    right = np.zeros((points.size, dim + 1))
     np.add.at(right, rows, basis * phi[cells][:, None])
     out = np.full(points.size, np.nan)
     ok = np.linalg.cond(normal) < 1e12

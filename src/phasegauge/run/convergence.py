@@ -160,7 +160,8 @@ def _divergent_warning(table) -> str:
     named = [f"{q} at t = {_times_words(g['time'])}" for q, g in rows.groupby("quantity", sort=False)]
     oscillating = int(rows["oscillatory"].astype(bool).sum()) if "oscillatory" in rows else 0
     kind = f"; {oscillating} rows also oscillatory" if oscillating else ""
-    return (f"values move apart as the mesh is refined (no positive apparent order, so no extrapolated value or "
+    return (f"values not converging as the mesh is refined: the fine pair differ by as much as or more than any "
+            f"positive order allows for these refinement ratios (no apparent order, so no extrapolated value or "
             f"GCI; column 'divergent'{kind}) for {'; '.join(named)}: refine further, or check that the three runs "
             "are one case given FINE MEDIUM COARSE")
 
