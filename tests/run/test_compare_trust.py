@@ -90,7 +90,7 @@ def test_a_rising_bubble_check_without_the_velocity_says_so(tmp_path):
         result = compare_runs(RunSpec(_series(tmp_path / "a"), "c"), RunSpec(_series(tmp_path / "b"), "c"),
                               rising_bubble=True)
     checks = result.reference_checks
-    assert (checks.loc[checks["quantity"].str.contains("velocity"), "verdict"] == "n/a").all()
+    assert (checks.loc[checks["quantity"].str.contains("velocity"), "verdict"] == "not_applicable").all()
 
 
 def _slab(folder, layers=1, depth=0.05):
