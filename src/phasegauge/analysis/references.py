@@ -124,7 +124,7 @@ def check_reference_table(reference: pd.DataFrame) -> pd.DataFrame:
             raise OptionError(f"reference column '{c}' must hold numbers", where=where,
                               fix="leave a cell empty instead of writing text") from None
     table["quantity"] = table["quantity"].astype(str).str.strip()
-    table["source"] = table["source"].fillna("").astype(str)
+    table["source"] = ["" if pd.isna(x) else str(x) for x in table["source"]]
     def refuse(bad, what, fix):
         rows = [f"{k + 1} ({q})" for k, q in enumerate(table["quantity"]) if bad.iloc[k]]
         raise OptionError(f"reference row{'s' if len(rows) > 1 else ''} {', '.join(rows)}: {what}", where=where,
@@ -246,8 +246,8 @@ def check_against_table(run: pd.DataFrame, reference) -> pd.DataFrame:
                           f"{', '.join(repr(c) for c in missing)}, which the run lacks; columns: "
                           f"{', '.join(map(str, run.columns))}", fix="pass a run table with that column or drop the row")
     t_all = run["time"].to_numpy(dtype=np.float64)
-    time_bands = {q.split(":", 1)[1]: _band(ref) for q, (_, ref) in zip(table["quantity"], table.iterrows())
-                  if q.startswith("time_of_")}  # 'min:NAME' -> the band of its time
+    time_bands = {ref["quantity"][len("time_of_"):]: _band(ref) for _, ref in table.iterrows()
+                  if ref["quantity"].startswith("time_of_")}  # 'min:NAME' -> the band of its time
     rows = []
     for _, ref in table.iterrows():
         quantity = ref["quantity"]
