@@ -6,6 +6,8 @@ known speed (the geometry of Hysing et al. 2009, case 1): its centroid x is 0.5 
 diameter 2R = 0.5 at every step (analytic), its mean velocity (0, V) as written.
 """
 
+import html
+
 import numpy as np
 import pandas as pd
 import pytest
@@ -56,6 +58,8 @@ def test_droplet_columns_of_the_largest_droplet_are_checked(tmp_path):
     back = pd.read_csv(out / "reference_checks.csv")  # pandas' default reading
     assert back["verdict"].tolist() == checks["verdict"].tolist()
     assert back["note"].iloc[-1] == "the run's outputs of centroid_y (t = 0 to 1.5) do not reach t = 9"
+    page = html.unescape((out / "report.html").read_text())
+    assert "centroid_y not applicable: the run's outputs of centroid_y" in page
 
 
 def test_a_column_neither_table_has_is_refused_before_measuring(tmp_path, monkeypatch):

@@ -319,6 +319,9 @@ def check_rising_bubble(bubble: pd.DataFrame, *, reference: pd.DataFrame | None 
     at t ~ 0.92, centroid height 1.081 at t = 3 (groups 1.0799 to 1.0817).
     Bands: +- 0.002 on the circularity and velocity values, +- 0.1 on the
     times of the extrema, and the groups' spread +- 0.002 on the centroid.
+    An extremum at the run's first or last output, or whose time band (0.82 to
+    1.02, 1.8 to 2.0) the run does not cover, is not applicable: a restarted
+    run, or one that ends early, does not hold it.
 
     References
     ----------
