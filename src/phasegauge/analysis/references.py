@@ -244,7 +244,8 @@ def check_against_table(run: pd.DataFrame, reference) -> pd.DataFrame:
     if missing:
         raise OptionError(f"reference quantities need column{'s' if len(missing) > 1 else ''} "
                           f"{', '.join(repr(c) for c in missing)}, which the run lacks; columns: "
-                          f"{', '.join(map(str, run.columns))}", fix="pass a run table with that column or drop the row")
+                          f"{', '.join(map(str, run.columns))}",
+                          fix="pass a run table with that column or drop the row")
     t_all = run["time"].to_numpy(dtype=np.float64)
     time_bands = {ref["quantity"][len("time_of_"):]: _band(ref) for _, ref in table.iterrows()
                   if ref["quantity"].startswith("time_of_")}  # 'min:NAME' -> the band of its time

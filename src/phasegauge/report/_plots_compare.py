@@ -192,7 +192,8 @@ def plot_reference_check(run, checks, *, columns=None):
             if kind.startswith("time_of_"):
                 ax.axvspan(low, high, color=colour, alpha=0.15)
             elif np.isfinite(row["time"]):
-                ax.errorbar([row["time"]], [row["reference"]], yerr=[[row["reference"] - low], [high - row["reference"]]],
+                ax.errorbar([row["time"]], [row["reference"]],
+                            yerr=[[row["reference"] - low], [high - row["reference"]]],
                             fmt="o", color=colour, ms=4, capsize=3)
             else:
                 ax.axhspan(low, high, color=colour, alpha=0.15)

@@ -147,8 +147,9 @@ def _compare_runs(first, second, *, out, overwrite, level, time_tolerance, spaci
     labels = (first.label or "first", second.label or "second")
     if rising_bubble and first.velocity is None:
         warnings.warn(PhasegaugeWarning("the rising-bubble check reads the bubble's rise velocity from the first "
-                                        "run's velocity field, which was not given, so its velocity checks read not_applicable: "
-                                        "give --velocity-a (recipe: velocity in [first])"), stacklevel=3)
+                                        "run's velocity field, which was not given, so its velocity checks read "
+                                        "not_applicable: give --velocity-a (recipe: velocity in [first])"),
+                      stacklevel=3)
 
     def open_both():
         with warnings.catch_warnings():  # each measure run reports its series' warnings
