@@ -70,7 +70,7 @@ def test_a_reference_table_is_named_and_the_unpaired_steps_listed(tmp_path):
     with pytest.raises(OptionError) as err:
         compare_runs(RunSpec(_series(tmp_path / "a"), "c"), RunSpec(_series(tmp_path / "b"), "c"),
                      reference_table=str(table))
-    assert "needs column 'rise_speed'" in err.value.what and err.value.where == str(table)
+    assert "names 'rise_speed', neither a steps.csv column" in err.value.what and err.value.where == str(table)
     out = tmp_path / "c"
     compare_runs(RunSpec(_series(tmp_path / "x"), "c", label="x"),
                  RunSpec(_series(tmp_path / "y", times=[0.0, 0.15, 0.3, 0.45]), "c", label="y"), out=str(out))
@@ -90,7 +90,7 @@ def test_a_rising_bubble_check_without_the_velocity_says_so(tmp_path):
         result = compare_runs(RunSpec(_series(tmp_path / "a"), "c"), RunSpec(_series(tmp_path / "b"), "c"),
                               rising_bubble=True)
     checks = result.reference_checks
-    assert (checks.loc[checks["quantity"].str.contains("velocity"), "verdict"] == "n/a").all()
+    assert (checks.loc[checks["quantity"].str.contains("velocity"), "verdict"] == "not_applicable").all()
 
 
 def _slab(folder, layers=1, depth=0.05):

@@ -23,7 +23,7 @@ import numpy as np
 from ..errors import OptionError
 
 __all__ = ["representative_cell_size", "grid_convergence", "convergence_table", "droplet_integrals", "paired_times",
-           "GCI_SAFETY_FACTOR", "CONVERGENCE_FIELDS", "CONVERGENCE_COLUMNS"]
+           "span_reach", "PAIRING_TOLERANCE", "GCI_SAFETY_FACTOR", "CONVERGENCE_FIELDS", "CONVERGENCE_COLUMNS"]
 
 #: safety factor of the fine-grid GCI for three meshes (Roache 1998; Celik et al. 2008)
 GCI_SAFETY_FACTOR = 1.25
@@ -262,6 +262,20 @@ def droplet_integrals(droplets):
 PAIRING_TOLERANCE = 1e-6
 
 
+def span_reach(*runs) -> float:
+    """How far a run's time span reaches beyond its first and last output: :data:`PAIRING_TOLERANCE`
+    of the median output interval of the runs' finite times (0 with no interval).
+
+    Parameters
+    ----------
+    *runs : array_like of float
+        The output times of each run.
+    """
+    spans = [np.asarray(t, dtype=float).ravel() for t in runs]
+    intervals = np.concatenate([np.diff(np.unique(t[np.isfinite(t)])) for t in spans] or [np.empty(0)])
+    return PAIRING_TOLERANCE * float(np.median(intervals)) if len(intervals) else 0.0
+
+
 def paired_times(times_fine, times_medium, times_coarse) -> np.ndarray:
     """The times at which three runs are compared: the fine run's times inside every run's time span.
 
@@ -271,8 +285,7 @@ def paired_times(times_fine, times_medium, times_coarse) -> np.ndarray:
     """
     spans = [np.asarray(t, dtype=float) for t in (times_fine, times_medium, times_coarse)]
     fine = spans[0]
-    intervals = np.concatenate([np.diff(np.unique(t[np.isfinite(t)])) for t in spans])
-    reach = PAIRING_TOLERANCE * float(np.median(intervals)) if len(intervals) else 0.0
+    reach = span_reach(*spans)
     keep = np.ones(fine.shape, dtype=bool)
     for t in spans[1:]:
         if len(t) > 1:

@@ -12,23 +12,30 @@ Reference tables have one row per checked quantity with the columns
     * ``time_of_min:NAME`` / ``time_of_max:NAME``: the time at which it occurs.
 
     Extrema are refined by a parabola through the discrete extremum and its two
-    neighbours (common practice), so they do not snap to the output times.
+    neighbours (common practice), so they do not snap to the output times. An
+    extremum the run may not hold is not checked: one at the run's first or last
+    output (the run may start or end before the true one; the value there is
+    checked with a ``NAME`` row at that time), or one whose ``time_of_`` row's band
+    the run's outputs do not cover.
 ``time``
-    Time of a ``NAME`` check; blank (NaN) for extrema.
+    Time of a ``NAME`` check (the run covers it to :data:`PAIRING_TOLERANCE` of its
+    median output interval, for round-off in accumulated times); empty for extrema
+    (a time there is refused).
 ``value``
     The reference value.
 ``tolerance``
     Half-width of the accepted band: ``value +- tolerance``.
 ``low``, ``high`` (optional)
-    Explicit band limits instead of ``value +- tolerance``; a row may give
-    either (when both, ``low``/``high`` widened by ``tolerance`` are used).
+    Explicit band limits instead of ``value +- tolerance``, both or neither
+    (``inf`` or ``-inf`` for a one-sided band); widened by ``tolerance`` when
+    that is given.
 ``source`` (optional)
     Where the value comes from; carried to the result.
 
 The result of a check has the columns ``quantity, value, time, reference,
 reference_low, reference_high, verdict`` (``pass`` inside the band, ``fail``
-outside, ``n/a`` when the run does not cover the quantity, e.g. it ends before
-the checked time) and ``source``.
+outside, ``not_applicable`` when the run does not cover the quantity, e.g. it ends
+before the checked time), ``note`` (why a check is not applicable) and ``source``.
 """
 
 from __future__ import annotations
@@ -37,13 +44,18 @@ import numpy as np
 import pandas as pd
 
 from ..errors import OptionError
+from ._grid_convergence import PAIRING_TOLERANCE, span_reach
 
 __all__ = ["RISING_BUBBLE_CASE1", "RISING_BUBBLE_CASE1_SOURCE", "check_rising_bubble",
-           "check_against_table", "check_reference_table", "bubble_history", "CHECK_COLUMNS"]
+           "check_against_table", "check_reference_table", "bubble_history", "largest_droplet",
+           "reference_columns", "CHECK_COLUMNS", "NOT_APPLICABLE", "PAIRING_TOLERANCE"]
 
 #: columns of every check result
 CHECK_COLUMNS = ("quantity", "value", "time", "reference", "reference_low", "reference_high",
-                 "verdict", "source")
+                 "verdict", "note", "source")
+
+#: the verdict of a check the run does not cover (a word pandas reads back as text, not as NaN)
+NOT_APPLICABLE = "not_applicable"
 
 RISING_BUBBLE_CASE1_SOURCE = (
     "Hysing et al. 2009, Quantitative benchmark computations of two-dimensional bubble dynamics, "
@@ -85,8 +97,10 @@ def check_reference_table(reference: pd.DataFrame) -> pd.DataFrame:
     Raises
     ------
     OptionError
-        Not a table; missing columns, non-numeric values, a negative tolerance, a band with
-        low > high, or a ``NAME`` row without a time.
+        Not a table; missing columns, non-numeric values, a negative tolerance, an unknown
+        prefix, only one of low and high, a band with low > high, a ``NAME`` row without a
+        time or an extremum's row with one. Rows are named by their number among the table's
+        rows (1 the first under the header) and their quantity.
     """
     if not isinstance(reference, pd.DataFrame):
         raise OptionError(f"a reference table must be a DataFrame, found {type(reference).__name__}",
@@ -110,35 +124,65 @@ def check_reference_table(reference: pd.DataFrame) -> pd.DataFrame:
             raise OptionError(f"reference column '{c}' must hold numbers", where=where,
                               fix="leave a cell empty instead of writing text") from None
     table["quantity"] = table["quantity"].astype(str).str.strip()
-    table["source"] = table["source"].fillna("").astype(str)
-    tol = table["tolerance"].fillna(0.0)
-    if np.any(tol < 0):
-        raise OptionError("reference tolerances must be non-negative", where=where,
-                          fix="give the half-width of the accepted band")
-    no_band = table["tolerance"].isna() & (table["low"].isna() | table["high"].isna())
+    table["source"] = ["" if pd.isna(x) else str(x) for x in table["source"]]
+    def refuse(bad, what, fix):
+        rows = [f"{k + 1} ({q})" for k, q in enumerate(table["quantity"]) if bad.iloc[k]]
+        raise OptionError(f"reference row{'s' if len(rows) > 1 else ''} {', '.join(rows)}: {what}", where=where,
+                          fix=fix)
+
+    kind = table["quantity"].str.rpartition(":")[0]
+    unknown = (kind != "") & ~kind.isin(_PREFIXES)
+    if np.any(unknown):
+        refuse(unknown, "unknown kind of quantity",
+               fix="use NAME, min:NAME, max:NAME, time_of_min:NAME or time_of_max:NAME")
+    if np.any(table["tolerance"] < 0):
+        refuse(table["tolerance"] < 0, "negative tolerance", fix="give the half-width of the accepted band")
+    one_limit = table["low"].isna() != table["high"].isna()
+    if np.any(one_limit):
+        refuse(one_limit, "only one of low and high given",
+               fix="give both limits (inf or -inf for a one-sided band), or neither for value +- tolerance")
+    no_band = table["tolerance"].isna() & table["low"].isna()
     if np.any(no_band):
-        raise OptionError(f"reference rows {table.index[no_band].tolist()} give neither a tolerance nor "
-                          "low and high", where=where, fix="give a tolerance (0 for an exact value)")
+        refuse(no_band, "neither a tolerance nor low and high given", fix="give a tolerance (0 for an exact value)")
     if np.any(table["low"] > table["high"]):
-        raise OptionError("reference rows with low > high", where=where, fix="swap low and high")
-    plain = ~table["quantity"].str.contains(":")
-    if np.any(plain & table["time"].isna()):
-        bad = table.loc[plain & table["time"].isna(), "quantity"].tolist()
-        raise OptionError(f"reference rows {bad} need a time", where=where,
-                          fix="give the time, or use min:NAME / max:NAME for extrema")
+        refuse(table["low"] > table["high"], "low > high", fix="swap low and high")
+    if np.any((kind == "") & table["time"].isna()):
+        refuse((kind == "") & table["time"].isna(), "no time (a NAME row needs one)",
+               fix="give the time, or use min:NAME / max:NAME for extrema")
+    if np.any((kind != "") & table["time"].notna()):
+        refuse((kind != "") & table["time"].notna(), "a time given, but an extremum is taken over the whole run",
+               fix="leave the time empty, or check NAME at that time with a plain row")
     if np.any(table["value"].isna()):
-        raise OptionError("every reference row needs a value", where=where, fix="fill the value column")
+        refuse(table["value"].isna(), "no value", fix="fill the value column")
     return table
 
 
-def _extremum(t: np.ndarray, v: np.ndarray, kind: str) -> tuple[float, float]:
-    """Extremum value and time, refined by a parabola through the three samples around it."""
+def reference_columns(reference: pd.DataFrame) -> list:
+    """The run columns a checked reference table names (``NAME`` of every row), in order."""
+    return list(dict.fromkeys(q.rpartition(":")[2] for q in reference["quantity"]))
+
+
+def _finite(t: np.ndarray, v: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    """The outputs where both the time and the value are finite, in time order."""
     ok = np.isfinite(t) & np.isfinite(v)
-    t, v = t[ok], v[ok]
+    order = np.argsort(t[ok], kind="stable")
+    return t[ok][order], v[ok][order]
+
+
+def _reach(t: np.ndarray) -> tuple[float, float]:
+    """The time span the outputs ``t`` (sorted, finite, not empty) cover: their first and last time widened
+    by :data:`PAIRING_TOLERANCE` of the median output interval (at least 1e-12 of the time, for round-off)."""
+    reach = span_reach(t)
+    return (float(t[0]) - max(reach, 1e-12 * max(1.0, abs(t[0]))),
+            float(t[-1]) + max(reach, 1e-12 * max(1.0, abs(t[-1]))))
+
+
+def _extremum(t: np.ndarray, v: np.ndarray, kind: str) -> tuple[float, float, str]:
+    """Extremum value and time, refined by a parabola through the three samples around it, and
+    ``'first'`` or ``'last'`` when the extreme output is the run's first or last one ('' inside)."""
+    t, v = _finite(t, v)
     if v.size == 0:
-        return np.nan, np.nan
-    order = np.argsort(t, kind="stable")
-    t, v = t[order], v[order]
+        return np.nan, np.nan, ""
     i = int(np.argmin(v) if kind == "min" else np.argmax(v))
     if 0 < i < v.size - 1:
         t0, t1, t2 = t[i - 1:i + 2]
@@ -149,8 +193,17 @@ def _extremum(t: np.ndarray, v: np.ndarray, kind: str) -> tuple[float, float]:
         if a != 0 and (a > 0) == (kind == "min"):
             ts = 0.5 * (t0 + t1) - d1 / (2 * a)
             if t0 <= ts <= t2:
-                return float(v0 + d1 * (ts - t0) + a * (ts - t0) * (ts - t1)), float(ts)
-    return float(v[i]), float(t[i])
+                return float(v0 + d1 * (ts - t0) + a * (ts - t0) * (ts - t1)), float(ts), ""
+    edge = "first" if i == 0 else "last" if i == v.size - 1 else ""
+    return float(v[i]), float(t[i]), edge
+
+
+def _band(ref) -> tuple[float, float]:
+    """The accepted band of a checked reference row: low/high widened by the tolerance, or value +- tolerance."""
+    tol = 0.0 if np.isnan(ref["tolerance"]) else float(ref["tolerance"])
+    if np.isnan(ref["low"]):
+        return float(ref["value"] - tol), float(ref["value"] + tol)
+    return float(ref["low"] - tol), float(ref["high"] + tol)
 
 
 def check_against_table(run: pd.DataFrame, reference) -> pd.DataFrame:
@@ -169,10 +222,13 @@ def check_against_table(run: pd.DataFrame, reference) -> pd.DataFrame:
     Returns
     -------
     DataFrame with columns ``quantity, value, time, reference, reference_low,
-    reference_high, verdict, source``
+    reference_high, verdict, note, source``
         ``value`` is the run's value, ``time`` the time it belongs to (the
         checked time, or the time of the extremum), ``verdict`` ``pass``,
-        ``fail`` or ``n/a`` (run does not cover the time, or the column is all NaN).
+        ``fail`` or ``not_applicable`` (:data:`NOT_APPLICABLE`: the run does not
+        cover the time, its extremum lies at its first or last output, its outputs
+        do not cover the band of the extremum's time, or the column is all NaN;
+        ``value`` is then NaN and ``note`` says which).
 
     Raises
     ------
@@ -184,48 +240,58 @@ def check_against_table(run: pd.DataFrame, reference) -> pd.DataFrame:
         raise OptionError("the run table needs a 'time' column",
                           fix="pass a table with one row per output time")
     table = check_reference_table(reference)
-    t = run["time"].to_numpy(dtype=np.float64)
+    missing = [c for c in reference_columns(table) if c not in run.columns]
+    if missing:
+        raise OptionError(f"reference quantities need column{'s' if len(missing) > 1 else ''} "
+                          f"{', '.join(repr(c) for c in missing)}, which the run lacks; columns: "
+                          f"{', '.join(map(str, run.columns))}",
+                          fix="pass a run table with that column or drop the row")
+    t_all = run["time"].to_numpy(dtype=np.float64)
+    time_bands = {ref["quantity"][len("time_of_"):]: _band(ref) for _, ref in table.iterrows()
+                  if ref["quantity"].startswith("time_of_")}  # 'min:NAME' -> the band of its time
     rows = []
     for _, ref in table.iterrows():
         quantity = ref["quantity"]
         kind, _, column = quantity.rpartition(":")
-        if kind and kind not in _PREFIXES:
-            raise OptionError(f"unknown reference quantity '{quantity}'",
-                              fix="use NAME, min:NAME, max:NAME, time_of_min:NAME or time_of_max:NAME")
-        if column not in run.columns:
-            raise OptionError(f"reference quantity '{quantity}' needs column '{column}', which the run "
-                              f"lacks; columns: {', '.join(map(str, run.columns))}",
-                              fix="pass a run table with that column or drop the row")
-        v = run[column].to_numpy(dtype=np.float64)
-        if kind:
-            extreme, when = _extremum(t, v, kind.rsplit("_", 1)[-1])
-            value, at = (when, when) if kind.startswith("time_of_") else (extreme, when)
+        t, v = _finite(t_all, run[column].to_numpy(dtype=np.float64))
+        low, high = _band(ref)
+        note = "" if t.size else f"{column} is not finite at any output"
+        if not kind:
+            value, at = _value_at(t, v, float(ref["time"])), float(ref["time"])
+            if t.size and np.isnan(value):
+                note = f"the run's outputs of {column} (t = {t[0]:g} to {t[-1]:g}) do not reach t = {at:g}"
         else:
-            at = float(ref["time"])
-            value = _value_at(t, v, at)
-        low, high, tol = ref["low"], ref["high"], ref["tolerance"]
-        tol = 0.0 if np.isnan(tol) else float(tol)
-        if np.isnan(low) or np.isnan(high):
-            low, high = ref["value"] - tol, ref["value"] + tol
+            extreme = kind.rsplit("_", 1)[-1]
+            value, at, edge = _extremum(t, v, extreme)
+            band = time_bands.get(f"{extreme}:{column}")
+            if edge:
+                word = "smallest" if extreme == "min" else "largest"
+                note = (f"the {word} {column} ({value:.6g}) is at the run's {edge} output, t = {at:g}: the run may "
+                        f"not hold its {extreme}imum (check the value there with a plain {column} row at t = {at:g})")
+            elif t.size and band is not None and not (_reach(t)[0] <= band[0] and band[1] <= _reach(t)[1]):
+                note = (f"the run's outputs of {column} (t = {t[0]:g} to {t[-1]:g}) do not cover the band of the "
+                        f"{extreme}imum's time, {band[0]:g} to {band[1]:g}")
+            if kind.startswith("time_of_"):
+                value = at
+        if note:
+            value, verdict = np.nan, NOT_APPLICABLE
         else:
-            low, high = low - tol, high + tol
-        if np.isnan(value):
-            verdict = "n/a"
-        else:
-            slack = 1e-12 * max(abs(low), abs(high), 1.0)
+            finite = [abs(x) for x in (low, high) if np.isfinite(x)]
+            slack = 1e-12 * max(finite + [1.0])
             verdict = "pass" if low - slack <= value <= high + slack else "fail"
-        rows.append((quantity, value, at, float(ref["value"]), float(low), float(high), verdict,
-                     ref["source"]))
+        rows.append((quantity, value, at, float(ref["value"]), low, high, verdict, note, ref["source"]))
     return pd.DataFrame(rows, columns=list(CHECK_COLUMNS))
 
 
 def _value_at(t: np.ndarray, v: np.ndarray, at: float) -> float:
-    ok = np.isfinite(t) & np.isfinite(v)
-    t, v = t[ok], v[ok]
-    if t.size == 0 or at < t.min() or at > t.max():
+    """The value at time ``at`` interpolated linearly between the outputs ``t`` (sorted, finite); NaN
+    outside the span they cover (:func:`_reach`: the last output's value a round-off beyond it)."""
+    if t.size == 0:
         return np.nan
-    order = np.argsort(t, kind="stable")
-    return float(np.interp(at, t[order], v[order]))
+    low, high = _reach(t)
+    if not low <= at <= high:
+        return np.nan
+    return float(np.interp(at, t, v))
 
 
 def check_rising_bubble(bubble: pd.DataFrame, *, reference: pd.DataFrame | None = None) -> pd.DataFrame:
@@ -254,6 +320,9 @@ def check_rising_bubble(bubble: pd.DataFrame, *, reference: pd.DataFrame | None 
     at t ~ 0.92, centroid height 1.081 at t = 3 (groups 1.0799 to 1.0817).
     Bands: +- 0.002 on the circularity and velocity values, +- 0.1 on the
     times of the extrema, and the groups' spread +- 0.002 on the centroid.
+    An extremum at the run's first or last output, or whose time band (0.82 to
+    1.02, 1.8 to 2.0) the run does not cover, is not applicable: a restarted
+    run, or one that ends early, does not hold it.
 
     References
     ----------
@@ -289,7 +358,24 @@ def bubble_history(droplets: pd.DataFrame) -> pd.DataFrame:
         raise OptionError(f"the droplet table lacks columns {need}", fix="pass a 2D droplets.csv table")
     if len(droplets) == 0:
         return pd.DataFrame(columns=["step", "time", "volume", "circularity", "centroid_y", "velocity_y"])
-    largest = droplets.loc[droplets.groupby("step")["volume"].idxmax()].sort_values("time")
+    largest = largest_droplet(droplets)
     out = largest[["step", "time", "volume", "circularity", "centroid_y"]].copy()
     out["velocity_y"] = largest["velocity_y"] if "velocity_y" in largest.columns else np.nan
     return out.reset_index(drop=True)
+
+
+def largest_droplet(droplets: pd.DataFrame) -> pd.DataFrame:
+    """Every column of the largest droplet (by ``volume``) of each step, one row per step in time order.
+
+    Parameters
+    ----------
+    droplets : DataFrame
+        A droplets table (droplets.csv) with at least ``step``, ``time`` and ``volume``.
+    """
+    need = [c for c in ("step", "time", "volume") if c not in droplets.columns]
+    if need:
+        raise OptionError(f"the droplet table lacks columns {need}", fix="pass a droplets.csv table")
+    if len(droplets) == 0:
+        return droplets.copy()
+    largest = droplets.loc[droplets.groupby("step")["volume"].idxmax()]
+    return largest.sort_values("time", kind="stable").reset_index(drop=True)

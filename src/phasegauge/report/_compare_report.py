@@ -111,7 +111,12 @@ def write_compare_report(out, result, *, specs, overlays, inputs: list, version:
     page.paragraph(f"{len(result.pairs)} paired times; {unpaired}{said}.")
     if len(result.reference_checks):
         page.heading("Published and reference values")
-        page.table(result.reference_checks)
+        checks = result.reference_checks
+        page.table(checks.drop(columns=["note"], errors="ignore"))
+        notes = [f"{row.quantity} not applicable: {row.note}" for row in checks.itertuples(index=False)
+                 if isinstance(getattr(row, "note", ""), str) and row.note]
+        if notes:  # why a check is not applicable: the run does not cover its quantity
+            page.items(notes)
     page.heading("Shape and metric comparison")
     cols = [c for c in ("time", "mismatch_volume", "dice", "hausdorff", "hausdorff_95", "mean_distance",
                         "field_difference") if c in result.comparison]

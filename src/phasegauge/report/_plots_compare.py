@@ -183,16 +183,20 @@ def plot_reference_check(run, checks, *, columns=None):
         ax.plot(run["time"], run[col], "-", color="tab:blue", lw=1.2)
         for _, row in checks[[n == col for n in named]].iterrows():
             kind = row["quantity"].rpartition(":")[0]
-            colour = "tab:green" if row["verdict"] == "pass" else "tab:red"
+            values = np.asarray(run["time" if kind.startswith("time_of_") else col], dtype=float)
+            span = (np.nanmin(values), np.nanmax(values)) if np.isfinite(values).any() else (0.0, 0.0)
+            colour = {"pass": "tab:green", "fail": "tab:red"}.get(row["verdict"], "tab:grey")  # grey: not applicable
+            # a one-sided band (an infinite limit) is drawn to the run's extreme value
+            low = row["reference_low"] if np.isfinite(row["reference_low"]) else min(span[0], row["reference"])
+            high = row["reference_high"] if np.isfinite(row["reference_high"]) else max(span[1], row["reference"])
             if kind.startswith("time_of_"):
-                ax.axvspan(row["reference_low"], row["reference_high"], color=colour, alpha=0.15)
+                ax.axvspan(low, high, color=colour, alpha=0.15)
             elif np.isfinite(row["time"]):
                 ax.errorbar([row["time"]], [row["reference"]],
-                            yerr=[[row["reference"] - row["reference_low"]],
-                                  [row["reference_high"] - row["reference"]]],
+                            yerr=[[row["reference"] - low], [high - row["reference"]]],
                             fmt="o", color=colour, ms=4, capsize=3)
             else:
-                ax.axhspan(row["reference_low"], row["reference_high"], color=colour, alpha=0.15)
+                ax.axhspan(low, high, color=colour, alpha=0.15)
         ax.set_title(_words(col), fontsize=9)
         ax.set_xlabel(TIME_LABEL)
         ax.set_ylabel(with_units(_words(col), col), fontsize=8)

@@ -127,7 +127,7 @@ def _compare_runs(first, second, *, out, overwrite, level, time_tolerance, spaci
 
     from ..analysis import compare as cmp
     from ..analysis import references
-    from ..io import Series, read_reference_table
+    from ..io import Series
     from ._compare_steps import paired_shapes, plan_sampling
     from .measure import measure
 
@@ -147,8 +147,9 @@ def _compare_runs(first, second, *, out, overwrite, level, time_tolerance, spaci
     labels = (first.label or "first", second.label or "second")
     if rising_bubble and first.velocity is None:
         warnings.warn(PhasegaugeWarning("the rising-bubble check reads the bubble's rise velocity from the first "
-                                        "run's velocity field, which was not given, so its velocity checks read n/a: "
-                                        "give --velocity-a (recipe: velocity in [first])"), stacklevel=3)
+                                        "run's velocity field, which was not given, so its velocity checks read "
+                                        "not_applicable: give --velocity-a (recipe: velocity in [first])"),
+                      stacklevel=3)
 
     def open_both():
         with warnings.catch_warnings():  # each measure run reports its series' warnings
@@ -161,7 +162,7 @@ def _compare_runs(first, second, *, out, overwrite, level, time_tolerance, spaci
         chosen = tuple(_chosen(spec, series, flag) for spec, series, flag in zip((first, second), both, "ab"))
         _one_time_axis(both, chosen)
         predicted = _some_pair(both, chosen, time_tolerance)
-        table = read_reference_table(reference_table) if reference_table else None  # a bad file before measuring
+        table = _checked_reference_table(reference_table) if reference_table else None  # a bad table before measuring
     except BaseException:
         for series in both:
             series.close()
@@ -261,15 +262,40 @@ def comparison_table(metrics: pd.DataFrame, shapes, labels) -> pd.DataFrame:
 
 
 def _reference_quantities(result):
-    """The steps table joined with the largest droplet's quantities (for a user's reference table)."""
-    steps = result.steps.copy()
-    from ..analysis.references import bubble_history
+    """The steps table joined, step by step, with every droplets.csv column of the largest droplet (for a
+    user's reference table; a steps.csv column keeps its name, a droplet column a run without droplets
+    lacks is NaN)."""
+    from ..analysis.droplets import TABLE_COLUMNS
+    from ..analysis.references import largest_droplet
 
-    bubble = bubble_history(result.droplets) if len(result.droplets) else result.droplets
-    if len(bubble):
-        extra = bubble.drop(columns=[c for c in bubble.columns if c in steps.columns and c != "time"])
-        steps = steps.merge(extra, on="time", how="left")
+    steps = result.steps.copy()
+    if len(result.droplets):
+        largest = largest_droplet(result.droplets)
+        steps = steps.merge(largest.drop(columns=[c for c in largest.columns if c in steps.columns and c != "step"]),
+                            on="step", how="left")
+    for column in ("track",) + TABLE_COLUMNS:
+        if column not in steps.columns:
+            steps[column] = np.nan
     return steps
+
+
+def _checked_reference_table(path):
+    """A reference table read and checked before either run is measured: its rows, and the columns it
+    names, each a steps.csv column or a droplets.csv one (of the largest droplet)."""
+    from ..analysis.droplets import TABLE_COLUMNS
+    from ..analysis.references import check_reference_table, reference_columns
+    from ..io import read_reference_table
+    from ._mixture import MIXTURE_COLUMNS, SOLUTE_COLUMNS
+    from .options import MORE_STEP_COLUMNS, STEP_COLUMNS
+
+    table = check_reference_table(read_reference_table(path))
+    known = set(STEP_COLUMNS + MORE_STEP_COLUMNS + MIXTURE_COLUMNS + SOLUTE_COLUMNS + TABLE_COLUMNS + ("track",))
+    unknown = [c for c in reference_columns(table) if c not in known]
+    if unknown:
+        raise OptionError(f"the reference table names {', '.join(map(repr, unknown))}, neither a steps.csv column "
+                          "nor a droplets.csv one", where=os.fspath(path),
+                          fix="name a column of steps.csv or of droplets.csv (the largest droplet's; see the README)")
+    return table
 
 
 def _chosen(spec: RunSpec, series, flag: str) -> list:

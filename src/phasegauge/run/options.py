@@ -20,7 +20,7 @@ from ..errors import FieldNotFoundError, FieldShapeError, OldNameWarning, Option
 from ..model.axes import AXIS_INDEX
 from ..model.indicator import normalize_field_location, normalize_phase, parse_range
 
-__all__ = ["MeasureOptions", "ANALYSES", "STEP_COLUMNS", "OLD_OPTION_NAMES", "check_workers",
+__all__ = ["MeasureOptions", "ANALYSES", "STEP_COLUMNS", "MORE_STEP_COLUMNS", "OLD_OPTION_NAMES", "check_workers",
            "wrong_field_option", "renamed_keywords"]
 
 #: old keyword -> the one name of the option (the old one is accepted with an OldNameWarning)
@@ -93,6 +93,21 @@ ANALYSES = ("interface", "droplets", "mixing", "conservation")
 STEP_COLUMNS = ("step", "time", "phase_volume", "phase_volume_drift", "phase_volume_drift_abs",
                 "interface_size", "interface_width", "interface_width_cells", "droplet_count",
                 "segregation_intensity", "mixing_index", "c_min", "c_max", "overshoot_volume")
+
+#: every other column steps.csv may hold, with the options that add it (the README's steps.csv table; a
+#: model's and a solute's columns are run/_mixture.MIXTURE_COLUMNS and SOLUTE_COLUMNS)
+MORE_STEP_COLUMNS = ("depth", "interface_eps", "width_threshold_free", "interface_variance", "width_second_moment",
+                     "width_profile_median", "width_profile_p90", "widest_x", "widest_y", "widest_z",
+                     "under_resolved_interface_fraction", "distance_error_median", "distance_error_p90",
+                     "interface_near_boundary_fraction", "interface_cells_across", "bulk_c_low", "bulk_c_high",
+                     "width_cell_data_bias", "under_resolved_droplets", "chemical_potential_mean",
+                     "chemical_potential_spread_max", "chemical_potential_spread_rms", "free_energy",
+                     "gradient_energy", "interfacial_tension", "mixed_volume_fraction", "mean_indicator",
+                     "region_volume", "domain_volume", "nonfinite_volume", "nonfinite_values", "boundary_outflow",
+                     "boundary_phase_outflow", "open_boundary", "open_boundary_area",
+                     "boundary_phase_outflow_unknown", "phase_volume_outflow", "phase_volume_drift_closed",
+                     "phase_mass", "other_mass", "total_mass", "mixing_length", "coarsening_length",
+                     "segregation_scale")
 
 
 @accept_old_names
