@@ -12,9 +12,10 @@ import pandas as pd
 
 from ..model.axes import AXIS_NAMES
 from ..model.mesh import Mesh
+from ..model._centroids import cell_centroids_of
 
-__all__ = ["TABLE_COLUMNS", "volume_integrals", "droplet_boxes", "shape_factors", "mean_velocity",
-           "droplet_table"]
+__all__ = ["TABLE_COLUMNS", "volume_integrals", "droplet_boxes", "contour_owners", "shape_factors",
+           "mean_velocity", "droplet_table"]
 
 #: columns of :attr:`DropletLabels.table`, in order
 TABLE_COLUMNS = (
@@ -72,9 +73,77 @@ def droplet_boxes(core_labels: np.ndarray, box_lo: np.ndarray, box_hi: np.ndarra
     return bmin, bmax
 
 
+def contour_owners(mesh: Mesh, cells: np.ndarray, label: np.ndarray, c_near: np.ndarray, owner: np.ndarray,
+                   icells: np.ndarray, places) -> np.ndarray:
+    """The droplet of every contour element, -1 for none.
+
+    ``cells`` are the near cells (sorted), ``label`` their droplets as cores (-1 off the cores) and
+    ``c_near`` their c; ``owner`` the droplet each element's cell was shared to (-1 for none),
+    ``icells`` the elements' cells and ``places`` their centres moved half a cell into the measured
+    phase, (k, dim), or None (then their cells' centroids).
+
+    An element in a core cell bounds that cell's droplet. Elsewhere the ``c = level`` contour of
+    the point values runs where the corners above the level take their values from core cells
+    sharing those corners (point values rebuilt from cell data lie within the range of the cells
+    around them), also through empty cells beside full ones. So an element in a cell that is not
+    a core goes to the droplet whose core cells share a corner with its cell; where the cores of
+    several droplets do (drops a cell apart), to the one whose core cell's centroid lies nearest
+    the element's place (on equal distance the higher c, then the lower centroid coordinates: no
+    cell numbers decide). An element with no core cell around its cell keeps ``owner``.
+    """
+    core = np.flatnonzero(label >= 0)
+    ask = np.flatnonzero(_at_cells(cells, label, icells) < 0)  # elements outside the cores
+    if not ask.size or not core.size:
+        return owner
+    around, where = np.unique(icells[ask], return_inverse=True)
+    incidence = mesh.incidence  # (n_cells, n_points), 1 at the corners of each cell
+    touch = (incidence[around] @ incidence[cells[core]].T).tocsr()  # corners shared: (around, core)
+    touch.sort_indices()
+    per_cell = np.diff(touch.indptr)
+    drop = label[core[touch.indices]]
+    has = per_cell > 0
+    low = np.full(around.size, -1, dtype=np.int64)
+    high = np.full(around.size, -1, dtype=np.int64)
+    if drop.size:
+        low[has] = np.minimum.reduceat(drop, touch.indptr[:-1][has])
+        high[has] = np.maximum.reduceat(drop, touch.indptr[:-1][has])
+    owner = owner.copy()
+    one = (has & (low == high))[where]
+    owner[ask[one]] = low[where[one]]
+    several = (has & (low != high))[where]
+    if not several.any():
+        return owner
+    lost, cell = ask[several], where[several]
+    count = per_cell[cell]
+    element = np.repeat(lost, count)
+    first = np.repeat(touch.indptr[cell] - (np.cumsum(count) - count), count)
+    candidate = core[touch.indices[first + np.arange(element.size)]]  # local numbers of core cells
+    at = cell_centroids_of(mesh, cells[candidate])
+    if places is None:
+        centres = cell_centroids_of(mesh, around[np.repeat(cell, count)])
+    else:
+        centres = places[element]
+    distance = np.sum((at - centres) ** 2, axis=1)
+    keys = tuple(at[:, d] for d in range(at.shape[1] - 1, -1, -1)) + (-c_near[candidate], distance, element)
+    order = np.lexsort(keys)
+    element, candidate = element[order], candidate[order]
+    head = np.concatenate([[True], element[1:] != element[:-1]])
+    owner[element[head]] = label[candidate[head]]
+    return owner
+
+
+def _at_cells(cells: np.ndarray, local_values: np.ndarray, query: np.ndarray) -> np.ndarray:
+    """The local value (droplet number) of each mesh cell of ``query``, -1 off the near ``cells``
+    (sorted), without a mesh-wide array."""
+    if not cells.size:
+        return np.full(query.shape, -1, dtype=np.int64)
+    at = np.minimum(np.searchsorted(cells, query), cells.size - 1)
+    return np.where(cells[at] == query, local_values[at], -1)
+
+
 def shape_factors(dim: int, volume: np.ndarray, diameter: np.ndarray, owner, isizes, n_drop: int) -> tuple:
-    """Circularity (2D) and sphericity (3D) from the contour elements in each droplet's shared cells
-    (``owner``: the droplet of each element's cell, -1 for none; None without elements)."""
+    """Circularity (2D) and sphericity (3D) from the contour elements of each droplet
+    (``owner``: the droplet of each element, -1 for none, see :func:`contour_owners`; None without elements)."""
     size = np.full(n_drop, np.nan)
     if owner is not None and owner.size:
         ok = owner >= 0

@@ -57,8 +57,8 @@ from ..model._grouping import index_dtype
 from ..model._whole_cells import WholeCells, whole_cells
 from ._band_sharing import finish_far_band, share_band
 from ._droplet_graph import join_periodic, neighbour_table, periodic_pairs, pieces
-from ._droplet_measures import (TABLE_COLUMNS, droplet_boxes, droplet_table, mean_velocity, shape_factors,
-                                volume_integrals)
+from ._droplet_measures import (TABLE_COLUMNS, _at_cells, contour_owners, droplet_boxes, droplet_table,
+                                mean_velocity, shape_factors, volume_integrals)
 
 __all__ = ["DropletLabels", "label_droplets", "TABLE_COLUMNS"]
 
@@ -150,10 +150,17 @@ def _check_options(level, connectivity: str, band_floor, interface_cells, interf
     return level, band_floor
 
 
-def _contour_arrays(mesh: Mesh, interface_cells, interface_sizes) -> tuple:
-    """The contour elements' cells and sizes checked, or (None, None) without them."""
+def _contour_arrays(mesh: Mesh, interface_cells, interface_sizes, interface_centres, interface_normals) -> tuple:
+    """The contour elements' cells, sizes and places (their centres moved half a cell into the
+    measured phase along their normals, in the plane's axes; None without centres) checked, or
+    (None, None, None) without them."""
+    for name, given, needs in (("interface_centres", interface_centres, (interface_cells,)),
+                               ("interface_normals", interface_normals, (interface_cells, interface_centres))):
+        if given is not None and any(n is None for n in needs):
+            wanted = "interface_cells, interface_sizes" + (" and interface_centres" if len(needs) > 1 else "")
+            raise OptionError(f"{name} needs {wanted}", fix=f"give them with {name}, or leave {name} out")
     if interface_cells is None:
-        return None, None
+        return None, None, None
     icells = np.asarray(interface_cells)
     isizes = np.asarray(interface_sizes, dtype=np.float64)
     if icells.ndim != 1 or isizes.shape != icells.shape:
@@ -164,7 +171,24 @@ def _contour_arrays(mesh: Mesh, interface_cells, interface_sizes) -> tuple:
         raise OptionError(f"interface_cells must be cell indices in [0, {mesh.n_cells}), found "
                           f"{icells.dtype} in [{icells.min()}, {icells.max()}]",
                           fix="pass the index of the cell holding each contour element")
-    return icells, isizes
+    if interface_centres is None:
+        return icells, isizes, None
+    places = _per_element(mesh, interface_centres, "interface_centres", icells.size)
+    if interface_normals is not None:
+        normals = _per_element(mesh, interface_normals, "interface_normals", icells.size)
+        places = places - 0.5 * mesh.cell_sizes_of(icells)[:, None] * normals  # the normals point out
+    return icells, isizes, places
+
+
+def _per_element(mesh: Mesh, values, name: str, k: int) -> np.ndarray:
+    """A (k, dim) or (k, 3) array of element vectors checked, in the plane's axes."""
+    out = np.asarray(values, dtype=np.float64)
+    if out.ndim != 2 or out.shape[0] != k or out.shape[1] not in (mesh.dimension, 3):
+        raise OptionError(f"{name} must have shape ({k}, {mesh.dimension}) or ({k}, 3), found {out.shape}",
+                          fix="give one row per contour element")
+    if out.shape[1] == 3 and mesh.dimension == 2:
+        out = out[:, list(mesh.plane_axes[:2])]
+    return out
 
 
 @dataclass(frozen=True)
@@ -270,19 +294,11 @@ def _on_mesh(mesh: Mesh, cells: np.ndarray, local_values: np.ndarray) -> np.ndar
     return out
 
 
-def _at_cells(cells: np.ndarray, local_values: np.ndarray, query: np.ndarray) -> np.ndarray:
-    """The local value (droplet number) of each mesh cell of ``query``, -1 off the near ``cells``
-    (sorted): as ``_on_mesh(...)[query]``, without the mesh-wide array."""
-    if not cells.size:
-        return np.full(query.shape, -1, dtype=np.int64)
-    at = np.minimum(np.searchsorted(cells, query), cells.size - 1)
-    return np.where(cells[at] == query, local_values[at], -1)
-
-
 # --------------------------------------------------------------------------- public
 def label_droplets(mesh: Mesh, c_cell, *, level: float = 0.5, connectivity: str = "face",
                    periodic=(), velocity=None, interface_cells=None, interface_sizes=None,
-                   band_floor: float = 1e-3, resolution_cells: float = 2.0, bulk=None) -> DropletLabels:
+                   interface_centres=None, interface_normals=None, band_floor: float = 1e-3,
+                   resolution_cells: float = 2.0, bulk=None) -> DropletLabels:
     """Label the droplets (connected regions of ``c > level``) and measure each one.
 
     Parameters
@@ -311,6 +327,13 @@ def label_droplets(mesh: Mesh, c_cell, *, level: float = 0.5, connectivity: str 
         ``c = level`` contour computed elsewhere.
     interface_sizes : ndarray of shape (k,), optional
         Length (2D) or area (3D) of each contour element.
+    interface_centres : ndarray of shape (k, dim) or (k, 3), optional
+        Centre of each contour element (:attr:`Contour.centroids`), in length units: an element
+        around which the cores of two droplets meet goes to the droplet of the core cell nearest
+        to it (see Notes); without them, nearest to the element's cell's centroid.
+    interface_normals : ndarray of shape (k, dim) or (k, 3), optional
+        Unit normal of each element pointing out of the measured phase (:attr:`Contour.normals`):
+        the nearest core cell is then taken from half a cell inside the element.
     band_floor : float
         Band cells with ``band_floor < c <= level`` are shared out to droplets.
     resolution_cells : float
@@ -341,8 +364,8 @@ def label_droplets(mesh: Mesh, c_cell, *, level: float = 0.5, connectivity: str 
           ``volume``;
         * ``circularity`` (2D; NaN in 3D): pi d / P (Hysing et al. 2009) and
           ``sphericity`` (3D; NaN in 2D): pi^(1/3) (6 V)^(2/3) / A (Wadell
-          1935), P and A summed over the contour elements in the droplet's
-          cells (NaN without contour elements);
+          1935), P and A summed over the droplet's contour elements (see
+          Notes; NaN without contour elements);
         * ``bbox_min_x .. bbox_max_z``: box of the corners of its ``c > level``
           cells, in the unwrapped frame (it can reach past a periodic boundary);
         * ``velocity_x, velocity_y, velocity_z``: int c u dV / volume (NaN
@@ -367,11 +390,24 @@ def label_droplets(mesh: Mesh, c_cell, *, level: float = 0.5, connectivity: str 
     the band is thus split at the middle. After 32 rings (a wide plateau of
     band values) the remaining cells go to the nearest assigned cell along
     centroid distances (multi-source Dijkstra). Band cells in a band
-    region that touches no droplet are left out of every droplet. The contour
-    elements are assigned through the same shared labels, so a segment lying
-    in a band cell counts for the droplet that cell was given to. Point
+    region that touches no droplet are left out of every droplet. Point
     connectivity applies to the cores; the band is always shared through
     faces.
+
+    Every contour element bounds a droplet and counts in its perimeter or
+    surface. An element in a core cell (c above the level) bounds that
+    cell's droplet. The others lie where the contour's corners above the
+    level take their values from core cells sharing those corners (the
+    ``c = level`` contour of point values rebuilt from cell data crosses
+    empty cells beside full ones): such an element goes to the droplet whose
+    core cells share a corner with its cell, and where the cores of several
+    droplets do (drops a cell apart), to the one whose core cell's centroid
+    lies nearest the element's centre moved half a cell into the measured
+    phase (along ``interface_normals``; without them, the centre itself;
+    without centres, the centroid of its cell); on equal distance the one of higher
+    c, then of lower centroid coordinates, so no cell numbers decide. An
+    element with no core cell around its cell counts for the droplet its
+    cell was shared to, if any.
 
     On a split mesh (polyhedra read as tetrahedra about their face and cell
     centres) each whole cell takes ``c = sum(V_piece c_piece) / V_whole``
@@ -413,7 +449,8 @@ def label_droplets(mesh: Mesh, c_cell, *, level: float = 0.5, connectivity: str 
     names, axes = _normalize_periodic(mesh, periodic)
     c = cell_values(mesh, c_cell, "c_cell")
     vel = None if velocity is None else vector_values(mesh, velocity, "velocity", "cell")[0]
-    icells, isizes = _contour_arrays(mesh, interface_cells, interface_sizes)
+    icells, isizes, places = _contour_arrays(mesh, interface_cells, interface_sizes, interface_centres,
+                                             interface_normals)
     source, split = mesh, mesh.cell_parents is not None
     if split:  # per whole cell from here on (c dV summed over each whole cell's pieces)
         mesh = whole_cells(source)
@@ -456,7 +493,9 @@ def label_droplets(mesh: Mesh, c_cell, *, level: float = 0.5, connectivity: str 
     diameter = 2.0 * np.sqrt(vol_pos / np.pi) if mesh.dimension == 2 else np.cbrt(6.0 * vol_pos / np.pi)
     bmin, bmax = droplet_boxes(label[core_local], box_lo, box_hi, n_drop, back)
     del box_lo, box_hi
-    owner = None if icells is None else _at_cells(cells, shared, icells)
+    owner = None
+    if icells is not None:
+        owner = contour_owners(mesh, cells, label, near.c, _at_cells(cells, shared, icells), icells, places)
     circularity, sphericity = shape_factors(mesh.dimension, vol_pos, diameter, owner, isizes, n_drop)
 
     columns = {"droplet": np.arange(n_drop, dtype=np.int64), "volume": volume,

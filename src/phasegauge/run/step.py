@@ -377,7 +377,8 @@ def _label_droplets(mesh, ind, options, u_cell, contour, plateaus):
     return droplets.label_droplets(
         mesh, ind.cell, level=options.level, connectivity=options.adjacency, periodic=tuple(options.periodic),
         velocity=u_cell, interface_cells=contour.cells, interface_sizes=contour.element_sizes,
-        bulk=(low, high), band_floor=max(1e-3, tail) if (low, high) != (0.0, 1.0) else 1e-3)
+        interface_centres=contour.centroids, interface_normals=contour.normals, bulk=(low, high),
+        band_floor=max(1e-3, tail) if (low, high) != (0.0, 1.0) else 1e-3)
 
 
 def _equilibrium(step, mesh, ind, options, interface_size) -> dict:
