@@ -340,9 +340,10 @@ def plot():
     return fig
 
 def waits_in_the_fork():
-    if os.getpid() != parent:  # the fork: say who it is, then draw for a long time
-        with open(os.path.join(folder, "fork.pid"), "w") as handle:
+    if os.getpid() != parent:  # the fork: say who it is (whole: the parent waits for the file), then draw long
+        with open(os.path.join(folder, "fork.pid.part"), "w") as handle:
             handle.write(str(os.getpid()))
+        os.replace(os.path.join(folder, "fork.pid.part"), os.path.join(folder, "fork.pid"))
         time.sleep(300)
     return plot()
 

@@ -166,3 +166,47 @@ def test_a_bulk_on_one_side_is_named_by_its_composition_whatever_the_phase(tmp_p
         assert np.isnan(row["bulk_composition_rich"])
         assert row["drop_radius"] == pytest.approx(0.03, abs=1.0 / N)
     assert rows[0]["bulk_composition_lean"] == rows[1]["bulk_composition_lean"]
+
+
+def test_a_long_wave_at_the_first_stage_of_a_quench_is_still_mixed(tmp_path):
+    # x = 0.5 + a cos(2 pi x), a = 0.01 then 0.025 (the linear stage of spinodal decomposition from one
+    # cosine, a common verification start), at 298.15 K inside the spinodal (0.247 to 0.754): the field
+    # spans a few per cent of the binodal's gap (0.763, isoactivity above): still mixed, not separated.
+    # The crests hold bulk cells beyond one measured width, flat against their distance, but none beyond
+    # two widths at the same composition (a plateau does)
+    mesh = grid_mesh((64, 64), kind="quad")
+    x = mesh.cell_centroids[:, 0]
+    path = write_listing(tmp_path, [(float(k), f"w_{k}.vtu", mesh, {"x": 0.5 + a * np.cos(2 * np.pi * x)})
+                                    for k, a in enumerate((0.01, 0.025))])
+    res = measure(path, "x", model=NrtlModel(**PAIR), temperature=298.15, periodic=("x", "y"))
+    assert not res.steps["separated"].any()
+    kinds = [f.kind for f in res.findings]
+    assert "mixed_inside_spinodal" in kinds and "binodal_gap" not in kinds
+
+
+def test_drops_packed_over_half_the_box_are_still_the_drops(tmp_path):
+    # 16 rich drops of radius 0.105 (55 % of the box) at the exact shifted equilibrium for l = 0.004 (2D,
+    # fsolve above): the drops are the phase of more regions, so drop_radius is theirs (0.105 within a
+    # cell), not the lean matrix's equivalent radius (0.375)
+    radius, length = 0.105, 0.004
+    lean, rich = _coexisting(PAIR, 298.15, (0.12, 0.88))
+    drop, matrix = _coexisting(PAIR, 298.15, (rich, lean), delta=length / radius)
+    centres = [(0.125 + 0.25 * i, 0.125 + 0.25 * j) for i in range(4) for j in range(4)]
+    mesh, distance = _drops(centres, radius)
+    path = write_listing(tmp_path, [(0.0, "p_0.vtu", mesh, {"x": _profile(distance, matrix, drop, eps=0.004)})])
+    res = measure(path, "x", model=NrtlModel(**PAIR), temperature=298.15, capillary_length=length,
+                  analyses=("interface", "droplets"))
+    step = res.steps.iloc[0]
+    assert step["droplet_count"] == 16
+    assert step["drop_radius"] == pytest.approx(radius, abs=1.0 / N)
+
+
+def test_a_run_that_never_separated_is_not_said_to_separate_later(tmp_path):
+    # uniform 0.5 inside the spinodal, then a field of one phase beyond the binodal (x = 0.05, outside the
+    # two-phase region: 'stable'): the still-mixed note of the first step must not claim a separation later
+    mesh = grid_mesh((40, 40), kind="quad")
+    path = write_listing(tmp_path, [(0.0, "u_0.vtu", mesh, {"x": np.full(mesh.n_cells, 0.5)}),
+                                    (1.0, "u_1.vtu", mesh, {"x": np.full(mesh.n_cells, 0.05)})])
+    res = measure(path, "x", model=NrtlModel(**PAIR), temperature=298.15)
+    mixed = next(f for f in res.findings if f.kind == "mixed_inside_spinodal")
+    assert "separated later" not in mixed.text and not res.steps["separated"].any()

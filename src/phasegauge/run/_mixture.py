@@ -42,6 +42,9 @@ PLATEAU_SPREADS = 50.0
 #: the fewest bulk cells on each side that :data:`PLATEAU_SPREADS` judges (our threshold: the median and
 #: quartiles of a handful of cells say nothing of a plateau)
 PLATEAU_CELLS = 10
+#: those cells lie beyond this many times the bulk's start from the contour, at the bulk's median within
+#: the equilibrium tolerance (our threshold: a tanh profile's plateau does, the crests of a cosine do not)
+PLATEAU_DEPTH = 2.0
 
 
 def _positive(value, name, fix):
@@ -183,14 +186,15 @@ def mixture_step(step, mesh, ind, contour, metrics: dict, options, droplets=None
     cells = (0, 0)
     distance = None
     if contour is not None and contour.n_elements and np.isfinite(width) and width > 0:
-        reach = options.bulk_widths * width
+        # searched out to twice the bulk's start: a plateau holds its value beyond there too
+        reach = PLATEAU_DEPTH * options.bulk_widths * width
         distance = thermo.interface_distance(mesh, ind.cell, contour, level=options.level, reach=reach,
                                              measured=measured, periodic=tuple(options.periodic))
         if options.phase != "upper":  # signed by the composition: positive on its rich side
             np.negative(distance, out=distance)
         found = thermo.bulk_compositions(mesh, x, distance, width=width, multiple=options.bulk_widths)
         bulk = {k: found[k] for k in bulk}
-        cells = (found["bulk_cells_lean"], found["bulk_cells_rich"])
+        cells = _plateau_cells(mesh, x, distance, width, found, options)
     out.update(bulk)
     lean, rich = bulk["bulk_composition_lean"], bulk["bulk_composition_rich"]
     out["separated"] = separated = _separated(bulk, cells, out["binodal_lean"], out["binodal_rich"], options)
@@ -209,11 +213,28 @@ def mixture_step(step, mesh, ind, contour, metrics: dict, options, droplets=None
     return out
 
 
+def _plateau_cells(mesh, x, distance, width, found: dict, options) -> tuple:
+    """The bulk cells of the lean and the rich side that lie on a plateau: those beyond
+    :data:`PLATEAU_DEPTH` times the bulk's start, counted where their median agrees with the bulk's
+    within the equilibrium tolerance ((0, 0) otherwise). The crests of a long-wave pattern (a
+    spinodal quench's first stage) hold bulk cells beyond one width but none that far."""
+    from ..analysis import thermo
+
+    deep = thermo.bulk_compositions(mesh, x, distance, width=width, multiple=PLATEAU_DEPTH * options.bulk_widths)
+    out = []
+    for side in ("lean", "rich"):
+        offset = abs(deep[f"bulk_composition_{side}"] - found[f"bulk_composition_{side}"])
+        agree = offset <= options.equilibrium_tolerance
+        out.append(int(deep[f"bulk_cells_{side}"]) if agree else 0)
+    return tuple(out)
+
+
 def _separated(bulk: dict, cells, binodal_lean: float, binodal_rich: float, options) -> bool:
     """Whether both bulks were measured and lie apart: by more than the tolerance, and either by half the
     binodal's gap (where the model has one), or by a quarter of it and :data:`SEPARATION_SPREADS` times
-    the sum of their spreads, or as flat plateaus (``cells``: the bulk cells of the lean and the rich side)
-    by :data:`PLATEAU_SPREADS` times the sum of their spreads whatever the gap. A quench's noise sets bulks
+    the sum of their spreads, or as flat plateaus (``cells``: the lean and the rich side's cells on a
+    plateau, :func:`_plateau_cells`) by :data:`PLATEAU_SPREADS` times the sum of their spreads whatever
+    the gap. A quench's noise sets bulks
     a few hundredths apart on the two sides of its contour, each about as wide as that; the peaks of an
     early spinodal pattern are narrow but lie a few hundredths apart too (neither is a separation); two
     flat plateaus at 0.3 and 0.7 are apart by far more than their spreads (a separation whose bulks have
@@ -233,23 +254,36 @@ def _separated(bulk: dict, cells, binodal_lean: float, binodal_rich: float, opti
 
 def _drop_phase(mesh, ind, droplets, options):
     """The drops of the phase that forms them and its name: ``(table, 'rich' or 'lean')``, the table
-    None without the droplets analysis. The drops are the phase of the smaller volume: the indicator's
-    (``droplets``, the regions with c above the level) or the other one, labelled here (the regions
-    with c below it). The indicator's phase is the rich one unless ``--phase lower``."""
+    None without the droplets analysis. The drops are the phase of more regions (those not wrapping a
+    periodic axis), the phase of smaller volume where both have as many: the indicator's (``droplets``,
+    the regions with c above the level) or the other one, labelled here (the regions with c below it).
+    Drops packed to more than half the box are still the drops; a lean drop in a rich matrix is the
+    lean phase's. The indicator's phase is the rich one unless ``--phase lower``."""
     if droplets is None:
         return None, "rich" if options.phase == "upper" else "lean"
-    c = np.asarray(ind.cell, dtype=float)
-    weights = np.asarray(mesh.cell_measures, dtype=float)
-    finite = np.isfinite(c)
-    inside = float(weights[finite & (c > options.level)].sum())
-    indicator = inside <= float(weights[finite].sum()) - inside
-    table = droplets
-    if not indicator:
-        from ..analysis.droplets import label_droplets
+    from ..analysis.droplets import label_droplets
 
-        table = label_droplets(mesh, 1.0 - c, level=1.0 - options.level, connectivity=options.adjacency,
-                               periodic=tuple(options.periodic)).table
-    return table, "rich" if indicator == (options.phase == "upper") else "lean"
+    c = np.asarray(ind.cell, dtype=float)
+    other = label_droplets(mesh, 1.0 - c, level=1.0 - options.level, connectivity=options.adjacency,
+                           periodic=tuple(options.periodic)).table
+    counts = [_bounded_regions(droplets), _bounded_regions(other)]
+    if counts[0] != counts[1]:
+        indicator = counts[0] > counts[1]
+    else:
+        weights = np.asarray(mesh.cell_measures, dtype=float)
+        finite = np.isfinite(c)
+        inside = float(weights[finite & (c > options.level)].sum())
+        indicator = inside <= float(weights[finite].sum()) - inside
+    return (droplets if indicator else other), "rich" if indicator == (options.phase == "upper") else "lean"
+
+
+def _bounded_regions(table) -> int:
+    """Regions of a droplet table that do not wrap a periodic axis."""
+    if table is None or not len(table):
+        return 0
+    if "spanning" in table:
+        return int((~np.asarray(table["spanning"], dtype=bool)).sum())
+    return len(table)
 
 
 def _drop_radius(droplets, dimension) -> float:
@@ -284,6 +318,13 @@ def _solute_step(step, mesh, x, distance, width, options) -> dict:
     for key in ("partition_coefficient", "extraction_progress", "lever_rule_residual"):
         out[key] = found.get(key, math.nan)
     return out
+
+
+def _afterwards(separated, mask) -> str:
+    """What a finding of the steps ``mask`` says of the steps after its last one: separated there, or not
+    judged (neither is the finding's own state at the last step)."""
+    after = np.asarray(separated, dtype=bool)[int(np.flatnonzero(mask)[-1]) + 1:]
+    return "; separated later" if after.any() else "; not judged at the last step"
 
 
 def _times(steps, mask) -> list:
@@ -351,13 +392,14 @@ def mixture_findings(steps, options) -> list:
     if unknown.any():
         times = _times(steps, unknown)
         still = bool(unknown[last])
-        found.append(Finding("bulk_not_measured", "warning" if still else "note",
-                             f"no bulk beyond {options.bulk_widths:g} interface "
-                             f"width{'s' if options.bulk_widths != 1 else ''} on one side or both inside the spinodal "
-                             f"({int(unknown.sum())} step(s), t = {times[0]:g} to {times[-1]:g}), with compositions "
-                             "spanning half the binodal's gap or more, so whether the phases separated is not judged "
-                             "there: a bulk that has not reached a plateau widens the measured interface (see "
-                             "interface_width) until no bulk is left" + ("" if still else "; separated later"),
+        spanning = (", with compositions spanning half the binodal's gap or more"
+                    if np.isfinite(span[unknown]).all() else "")  # (not known without the conservation analysis)
+        text = (f"no bulk beyond {options.bulk_widths:g} interface width{'s' if options.bulk_widths != 1 else ''} "
+                f"on one side or both inside the spinodal ({int(unknown.sum())} step(s), t = {times[0]:g} to "
+                f"{times[-1]:g}){spanning}, so whether the phases separated is not judged there: a bulk that has "
+                "not reached a plateau widens the measured interface (see interface_width) until no bulk is left"
+                + ("" if still else _afterwards(separated, unknown)))
+        found.append(Finding("bulk_not_measured", "warning" if still else "note", text,
                              {"steps": int(unknown.sum()), "first_time": times[0], "last_time": times[-1],
                               "at_last_step": still}))
     unstable = (state == "unstable") & ~separated & mixed_seen
@@ -365,7 +407,7 @@ def mixture_findings(steps, options) -> list:
         times = _times(steps, unstable)
         still = bool(unstable[last])
         text = (f"still mixed inside the spinodal ({int(unstable.sum())} step(s), t = {times[0]:g} to {times[-1]:g})"
-                + ("" if still else "; separated later"))
+                + ("" if still else _afterwards(separated, unstable)))
         found.append(Finding("mixed_inside_spinodal", "warning" if still else "note", text,
                              {"steps": int(unstable.sum()), "first_time": times[0], "last_time": times[-1],
                               "at_last_step": still}))
