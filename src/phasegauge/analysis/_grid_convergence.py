@@ -271,8 +271,7 @@ def paired_times(times_fine, times_medium, times_coarse) -> np.ndarray:
     """
     spans = [np.asarray(t, dtype=float) for t in (times_fine, times_medium, times_coarse)]
     fine = spans[0]
-    intervals = np.concatenate([np.diff(np.unique(t[np.isfinite(t)])) for t in spans])
-    reach = PAIRING_TOLERANCE * float(np.median(intervals)) if len(intervals) else 0.0
+    reach = pairing_reach(*spans)
     keep = np.ones(fine.shape, dtype=bool)
     for t in spans[1:]:
         if len(t) > 1:
@@ -280,6 +279,15 @@ def paired_times(times_fine, times_medium, times_coarse) -> np.ndarray:
             keep &= fine >= low - max(reach, 1e-12 * max(1.0, abs(low)))
             keep &= fine <= high + max(reach, 1e-12 * max(1.0, abs(high)))
     return fine[keep]
+
+
+def pairing_reach(*times) -> float:
+    """How far beyond its first and last output a run's time span reaches: :data:`PAIRING_TOLERANCE` of
+    the median output interval of the runs (``times``: one array of output times per run; 0 when no
+    run has two outputs). Callers keep a floor of 1e-12 of the time for round-off."""
+    spans = [np.asarray(t, dtype=float) for t in times]
+    intervals = np.concatenate([np.diff(np.unique(t[np.isfinite(t)])) for t in spans] + [np.empty(0)])
+    return PAIRING_TOLERANCE * float(np.median(intervals)) if len(intervals) else 0.0
 
 
 def _values_at(frame, column, times):
