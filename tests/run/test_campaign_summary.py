@@ -176,3 +176,22 @@ def test_d_num_carries_its_significance_and_an_unreached_mixing_length_stays_on_
     assert sorted(shown) == list(table["parameter"])
     assert all(line.get_markerfacecolor() == "none" for line in hollow)
     assert len(hollow) == int((~table["D_num_significant"].astype(bool)).any())
+
+
+def test_the_command_line_shows_each_runs_warning_of_one_kind(tmp_path):
+    # both runs' last files are cut short: the same warning, once per run (their files have the same names)
+    from click.testing import CliRunner
+
+    from phasegauge.cli import main
+
+    mesh = _channel(40, 5)
+    for q in (1.0, 2.0):
+        _write_steps(str(tmp_path / f"q{q:g}"), mesh, [_dye(mesh, q, 0.04, k) for k in range(3)], q)
+        last = tmp_path / f"q{q:g}" / "chan_002.vtu"
+        last.write_bytes(last.read_bytes()[:1000])
+    recipe = _recipe(str(tmp_path), (1.0, 2.0), '[run]\nanalyses = ["mixing"]\n\n')
+    result = CliRunner().invoke(main, ["run", recipe, "-q", "--threads", "1"])
+    assert result.exit_code == 0, result.output
+    for run in ("q1", "q2"):
+        assert f"phasegauge: warning: run {run}: chan_002.vtu, step 2: step skipped" in result.output, result.output
+    assert result.output.count("2 runs skipped steps (q1: 1, q2: 1)") == 1
