@@ -105,7 +105,9 @@ class _WarningPrinter:
             if not self.debug:
                 return
             text = f"{category.__name__}: {text} ({os.path.basename(filename)}:{lineno})"
-        key = (category, re.sub(r"[-+]?(\d+\.?\d*|\.\d+)([eE][-+]?\d+)?", "#", text))
+        # numbers masked, but not in a campaign run's label (``run q0.5`` and ``run q2`` are two runs)
+        label = message.where if isinstance(message, PhasegaugeWarning) and message.where.startswith("run ") else ""
+        key = (category, label, re.sub(r"[-+]?(\d+\.?\d*|\.\d+)([eE][-+]?\d+)?", "#", text))
         if key in self.seen:
             return
         self.seen.add(key)

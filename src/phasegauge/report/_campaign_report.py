@@ -18,16 +18,24 @@ _FIGURES = (("mixing_length", "mixing length"), ("mixing_index", "final mixing i
             ("droplet_count", "final droplet count"), ("D_num", "D_num"))
 
 
-def plot_campaign(table, *, parameter: str = "parameter", unit: str = ""):
+def plot_campaign(table, *, parameter: str = "parameter", unit: str = "", sections: bool = False):
     """Each summary figure of the runs against the parameter, one panel per figure that has values.
+
+    Every panel spans every run's parameter. The drift panel draws, for a run with open boundaries,
+    the drift the boundary flow leaves unexplained (``phase_volume_drift_closed``), and its title says
+    so. ``D_num`` carries its standard error as an error bar, hollow where the run's audit finds it
+    not distinguishable from 0 (``D_num_significant`` False). With ``sections`` (the runs measured
+    cross-sections), a run whose mixing length is NaN did not mix within the domain: a hollow
+    triangle at the top of the mixing-length panel, labelled "not reached".
 
     Returns
     -------
     matplotlib.figure.Figure or None
         None when no figure has a finite value.
     """
+    values = {c: _drift(table) if c == "phase_volume_drift" else _column(table, c) for c, _ in _FIGURES}
     shown = [(c, label) for c, label in _FIGURES
-             if c in table and np.isfinite(np.asarray(table[c], dtype=float)).any()]
+             if np.isfinite(values[c]).any() or (c == "mixing_length" and sections and c in table)]
     if not shown:
         return None
     columns = min(3, len(shown))
@@ -37,28 +45,107 @@ def plot_campaign(table, *, parameter: str = "parameter", unit: str = ""):
     x = np.asarray(table["parameter"], dtype=float)
     xlabel = f"{parameter} ({unit})" if unit else parameter
     for ax, (column, label) in zip(axes, shown):
-        ax.plot(x, np.asarray(table[column], dtype=float), marker="o")
+        y = values[column]
+        if column == "D_num":
+            _plot_significance(ax, table, x, y)
+        else:
+            ax.plot(x, y, marker="o")
+        if column == "mixing_length" and sections:
+            _mark_not_reached(ax, x, y)
+        ax.set_xlim(*_span(x))
         ax.set_xlabel(xlabel)
-        ax.set_title(label)
+        ax.set_title(_drift_title(table) if column == "phase_volume_drift" else label)
         ax.set_ylabel(label)
     for ax in axes[len(shown):]:
         ax.set_visible(False)
     return figure
 
 
-def write_campaign_report(out, table, *, parameter: str, unit: str, version: str, started: float) -> None:
-    """Write campaign.csv, campaign.png and manifest.json into ``out`` (each file atomically)."""
+def _column(table, column: str) -> np.ndarray:
+    """A column of the table as floats (NaN where it is missing)."""
+    if column not in table:
+        return np.full(len(table), np.nan)
+    return np.asarray(table[column], dtype=float)
+
+
+def _flag(table, column: str) -> np.ndarray:
+    """A True/False column of the table as booleans (False where it is empty or missing)."""
+    if column not in table:
+        return np.zeros(len(table), dtype=bool)
+    return np.array([str(value) == "True" for value in table[column]], dtype=bool)
+
+
+def _drift(table) -> np.ndarray:
+    """Each run's final drift: the unexplained one (``phase_volume_drift_closed``) where the run has open
+    boundaries, else ``phase_volume_drift``."""
+    return np.where(_flag(table, "open_boundary"), _column(table, "phase_volume_drift_closed"),
+                    _column(table, "phase_volume_drift"))
+
+
+def _drift_title(table) -> str:
+    opened = _flag(table, "open_boundary")
+    if opened.all():
+        return "final phase-volume drift,\nboundary flow added back"
+    if opened.any():
+        return "final phase-volume drift\n(open runs: boundary flow added back)"
+    return "final phase-volume drift"
+
+
+def _plot_significance(ax, table, x, y) -> None:
+    """D_num with its standard error; filled where significant, hollow where not distinguishable from 0."""
+    stderr = _column(table, "D_num_stderr")
+    significant = _flag(table, "D_num_significant")
+    line, = ax.plot(x, y, linestyle="-")
+    color = line.get_color()
+    ax.errorbar(x, y, yerr=np.where(np.isfinite(stderr), stderr, 0.0), fmt="none", ecolor=color, capsize=3)
+    for chosen, face, name in ((significant, color, "significant"), (~significant, "none", "not significant")):
+        if chosen.any():
+            ax.plot(x[chosen], y[chosen], linestyle="none", marker="o", markerfacecolor=face,
+                    markeredgecolor=color, label=name)
+    ax.axhline(0.0, color="0.6", linewidth=0.8)
+    if (~significant).any():
+        ax.legend(fontsize="small")
+
+
+def _mark_not_reached(ax, x, y) -> None:
+    """A hollow triangle at the top of the panel for each run that did not reach the mixing target."""
+    missing = ~np.isfinite(y)
+    if not missing.any():
+        return
+    finite = y[~missing]
+    top = 1.1 * float(finite.max()) if len(finite) and finite.max() > 0 else 1.0
+    ax.plot(x[missing], np.full(int(missing.sum()), top), linestyle="none", marker="^", markersize=9,
+            markerfacecolor="none", label="not reached")
+    ax.set_ylim(bottom=0.0, top=1.15 * top)
+    ax.legend(fontsize="small")
+
+
+def _span(x: np.ndarray) -> tuple:
+    """x-limits that show every parameter, with a margin."""
+    finite = x[np.isfinite(x)]
+    low, high = float(finite.min()), float(finite.max())
+    pad = 0.05 * (high - low) if high > low else max(0.5 * abs(low), 0.5)
+    return low - pad, high + pad
+
+
+def write_campaign_report(out, table, *, parameter: str, unit: str, version: str, started: float,
+                          warnings=(), sections: bool = False) -> None:
+    """Write campaign.csv, campaign.png and manifest.json into ``out`` (each file atomically).
+
+    ``warnings`` are the campaign's own (one line each), kept in the manifest; ``sections`` as for
+    :func:`plot_campaign`.
+    """
     out = os.fspath(out)
     atomic_write_csv(os.path.join(out, "campaign.csv"), table)
     written = ["campaign.csv"]
-    figure = plot_campaign(table, parameter=parameter, unit=unit)
+    figure = plot_campaign(table, parameter=parameter, unit=unit, sections=sections)
     if figure is not None:
         atomic_save_figure(os.path.join(out, "campaign.png"), figure)
         written.append("campaign.png")
     runs = [{"run": r, "parameter": p, "path": s, "folder": f} for r, p, s, f in
             zip(table["run"], table["parameter"], table["path"], table["folder"])]
     manifest = run_manifest("campaign", version=version, inputs=[],
-                            fields={"parameter": parameter, "unit": unit, "runs": runs},
+                            fields={"parameter": parameter, "unit": unit, "runs": runs, "warnings": list(warnings)},
                             outputs=written, timings={"total_seconds": round(time.time() - started, 3)})
     atomic_write_json(os.path.join(out, "manifest.json"), manifest)
     mark_complete(out)

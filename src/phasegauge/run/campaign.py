@@ -14,19 +14,26 @@ import json
 import os
 import re
 import time
+import warnings
 from dataclasses import dataclass, field
 
 import numpy as np
 
-from ..errors import OptionError
+from ..errors import OptionError, PhasegaugeWarning, SeriesWarning
 
-__all__ = ["CampaignResult", "run_campaign", "campaign_summary", "SUMMARY_FIGURES", "run_label"]
+__all__ = ["CampaignResult", "run_campaign", "campaign_summary", "campaign_warning", "SUMMARY_FIGURES", "run_label"]
 
-#: campaign.csv figures taken from each run: (column, steps.csv column or audit key, how)
-SUMMARY_FIGURES = (("mixing_length", "mixing_length", "last"), ("mixing_index", "mixing_index", "last"),
+#: campaign.csv figures taken from each run: (column, steps.csv column or audit key, how): "last" the value at
+#: the run's last measured step (whose time is ``time``), "any" whether any step has it, "audit" the run's
+#: diffusion audit
+SUMMARY_FIGURES = (("time", "time", "last"),
+                   ("mixing_length", "mixing_length", "last"), ("mixing_index", "mixing_index", "last"),
                    ("phase_volume_drift", "phase_volume_drift", "last"),
+                   ("phase_volume_drift_closed", "phase_volume_drift_closed", "last"),
+                   ("open_boundary", "open_boundary", "any"),
                    ("interface_width", "interface_width", "last"), ("droplet_count", "droplet_count", "last"),
-                   ("D_num", "D_num", "audit"))
+                   ("D_num", "D_num", "audit"), ("D_num_stderr", "D_num_stderr", "audit"),
+                   ("D_num_significant", "significant", "audit"))
 
 
 @dataclass
@@ -45,23 +52,36 @@ def run_label(entry: dict, k: int) -> str:
     return re.sub(r"[^A-Za-z0-9_.-]+", "_", label)
 
 
-def campaign_summary(steps, audit: dict) -> dict:
-    """The summary figures of one run (see :data:`SUMMARY_FIGURES`); NaN where the run has none."""
+def campaign_summary(steps, audit: dict, skipped=()) -> dict:
+    """The summary figures of one run (see :data:`SUMMARY_FIGURES`); NaN where the run has none.
+
+    ``skipped`` lists the steps the run left out (``MeasureResult.skipped``): their number is
+    ``skipped_steps``; ``steps`` the number it measured. ``open_boundary`` and ``D_num_significant``
+    are True or False (None where the run has no velocity or no diffusion audit).
+    """
     out = {}
     for column, source, how in SUMMARY_FIGURES:
         if how == "audit":
             value = (audit or {}).get(source)
-        elif steps is not None and source in steps and len(steps):
-            value = steps[source].iloc[-1]
-        else:
+        elif steps is None or source not in steps or not len(steps):
             value = None
-        out[column] = float(value) if value is not None and np.isfinite(float(value)) else float("nan")
+        elif how == "any":
+            value = bool(steps[source].astype(bool).any())
+        else:
+            value = steps[source].iloc[-1]
+        if isinstance(value, (bool, np.bool_)):
+            out[column] = bool(value)
+        elif column in ("open_boundary", "D_num_significant"):
+            out[column] = None
+        else:
+            out[column] = float(value) if value is not None and np.isfinite(float(value)) else float("nan")
     out["steps"] = 0 if steps is None else int(len(steps))
+    out["skipped_steps"] = len(skipped or ())
     return out
 
 
 def _finished(folder: str):
-    """(steps table, audit) of a finished measure run in ``folder``, or None."""
+    """(steps table, audit, skipped steps) of a finished measure run in ``folder``, or None."""
     import pandas as pd
 
     from ..report._files import RUN_MARKER
@@ -76,9 +96,46 @@ def _finished(folder: str):
         if os.path.isfile(path):
             with open(path, encoding="utf-8") as handle:
                 audit = json.load(handle)
-        return steps, audit
+        with open(os.path.join(folder, "manifest.json"), encoding="utf-8") as handle:
+            skipped = json.load(handle).get("skipped_steps") or []
+        return steps, audit, skipped
     except (OSError, ValueError):
         return None
+
+
+def campaign_warning(table, times) -> str | None:
+    """One line on the runs whose figures are not of the same time as the others', or None.
+
+    A run that skipped steps, and runs whose last measured time (``time``) ends before the latest
+    one's by more than the pairing reach of the runs' outputs (:func:`~phasegauge.analysis.convergence.
+    span_reach`; at least 1e-12 of the time, for round-off). ``times``: every run's output times (its
+    steps.csv ``time``). A run of one step that skipped none (a steady result) is not compared.
+    """
+    from ..analysis.convergence import span_reach
+
+    parts = []
+    skipped = [(run, int(n)) for run, n in zip(table["run"], table["skipped_steps"]) if n]
+    if skipped:
+        parts.append(f"{_runs(len(skipped))} skipped steps (" + ", ".join(f"{run}: {n}" for run, n in skipped) + ")")
+    compared = [(run, float(t)) for run, t, n, k in zip(table["run"], table["time"], table["steps"],
+                                                         table["skipped_steps"]) if np.isfinite(t) and (n > 1 or k)]
+    early = []
+    if compared:
+        latest = max(t for _, t in compared)
+        reach = max(span_reach(*times), 1e-12 * max(1.0, abs(latest)))
+        early = [(run, t) for run, t in compared if t < latest - reach]
+        if early:
+            parts.append(f"{_runs(len(early))} end{'s' if len(early) == 1 else ''} before t = {latest:.10g}, the "
+                         "latest run's last time (" + ", ".join(f"{run}: {t:.10g}" for run, t in early) + ")")
+    if not parts:
+        return None
+    so = "their figures are of an earlier time than the others'" if early else "their figures leave those steps out"
+    return (" and ".join(parts) + f": {so} (campaign.csv columns time and skipped_steps); write the skipped "
+            "steps again, or end every run at one time ([input] time_to)")
+
+
+def _runs(n: int) -> str:
+    return f"{n} run{'s' if n != 1 else ''}"
 
 
 def run_campaign(runs: list, options, *, out, parameter: str = "parameter", unit: str = "",
@@ -174,17 +231,24 @@ def run_campaign(runs: list, options, *, out, parameter: str = "parameter", unit
             measured = _one_after_another(jobs, settings, workers=workers, progress=progress, total=len(runs))
         for k, res in measured.items():
             results[k] = res
-            done[k] = (res.steps, res.audit)
+            done[k] = (res.steps, res.audit, res.skipped)
         rows = []
         for k, (r, label) in enumerate(zip(runs, labels)):
-            steps, audit = done[k]
+            steps, audit, skipped = done[k]
             rows.append({"run": label, "parameter": float(r["parameter"]), "path": os.path.abspath(r["path"]),
-                         "folder": f"run_{label}", **campaign_summary(steps, audit)})
+                         "folder": f"run_{label}", **campaign_summary(steps, audit, skipped)})
         table = _table(rows)
+        found = campaign_warning(table, [_times(steps) for steps, _, _ in done])
+        notes = []
+        if found is not None:
+            warning = SeriesWarning(found, where=os.fspath(out))
+            warnings.warn(warning, stacklevel=2)
+            notes.append(warning.one_line())
         from ._report_data import package_version
         from ..report._campaign_report import write_campaign_report
 
-        write_campaign_report(out, table, parameter=parameter, unit=unit, version=package_version(), started=started)
+        write_campaign_report(out, table, parameter=parameter, unit=unit, version=package_version(), started=started,
+                              warnings=notes, sections="mixing" in options.analyses and bool(options.section_axis))
     return CampaignResult(table=table, runs=results, parameter=parameter, unit=unit)
 
 
@@ -214,10 +278,29 @@ def _check_series(runs: list, options) -> None:
 
 
 def _measure_job(job: _RunJob, settings: dict, *, workers: int, progress, progress_label: str):
+    """Measure one run; its warnings name the run (``run LABEL: ...``), as every run's files may have the
+    same names."""
     from .measure import measure
 
-    return measure(job.path, out=job.folder, workers=workers, resume=job.resume, progress=progress,
-                   progress_label=progress_label, **settings)
+    caught = []
+    try:
+        with warnings.catch_warnings(record=True) as caught:
+            warnings.simplefilter("always")
+            return measure(job.path, out=job.folder, workers=workers, resume=job.resume, progress=progress,
+                           progress_label=progress_label, **settings)
+    finally:
+        _warn_with_label(caught, job.label)
+
+
+def _warn_with_label(caught, label: str) -> None:
+    """Issue the ``caught`` warnings again (after the ``catch_warnings`` block), phasegauge's naming the run."""
+    for w in caught:
+        message = w.message
+        if isinstance(message, PhasegaugeWarning):
+            where = f"run {label}" + (f", {message.where}" if message.where else "")
+            warnings.warn(type(message)(message.what, where=where), stacklevel=3)
+        else:
+            warnings.warn_explicit(message, w.category, w.filename, w.lineno)
 
 
 def _one_after_another(jobs, settings, *, workers, progress, total) -> dict:
@@ -317,6 +400,13 @@ def _serve_run(job: _RunJob, settings: dict, workers: int, conn, parent: int) ->
         conn.send(message)
     finally:
         conn.close()
+
+
+def _times(steps):
+    """A run's output times (its steps table's ``time``), empty without one."""
+    if steps is None or "time" not in steps:
+        return np.empty(0)
+    return steps["time"].to_numpy(dtype=float)
 
 
 def _table(rows):
