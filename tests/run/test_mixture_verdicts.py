@@ -210,3 +210,48 @@ def test_a_run_that_never_separated_is_not_said_to_separate_later(tmp_path):
     res = measure(path, "x", model=NrtlModel(**PAIR), temperature=298.15)
     mixed = next(f for f in res.findings if f.kind == "mixed_inside_spinodal")
     assert "separated later" not in mixed.text and not res.steps["separated"].any()
+
+
+@pytest.mark.parametrize("radius", [0.07, 0.10])
+def test_small_drops_on_flat_plateaus_quenched_deeper_are_separated(tmp_path, radius):
+    # nine rich drops with their bulks on the 351.5 K binodal (isoactivity above), read at 298.15 K: flat
+    # plateaus (a tanh profile) though the drops are under two measured widths across their radius, so
+    # separated and off the 298.15 K binodal (0.325: the analytic distance of the two pairs), not mixed
+    hot = _coexisting(PAIR, 351.5, (0.42, 0.56))
+    cold = _coexisting(PAIR, 298.15, (0.12, 0.88))
+    mesh, distance = _drops([(a, b) for a in (0.2, 0.5, 0.8) for b in (0.2, 0.5, 0.8)], radius)
+    comp = _profile(distance, *hot)
+    path = write_listing(tmp_path, [(0.0, "s_0.vtu", mesh, {"x": comp, "T": np.full(mesh.n_cells, 298.15)})])
+    res = measure(path, "x", model=NrtlModel(**PAIR), temperature_field="T", analyses=("interface", "droplets"))
+    step = res.steps.iloc[0]
+    assert step["separated"]
+    assert step["equilibrium_gap"] == pytest.approx(max(hot[0] - cold[0], cold[1] - hot[1]), abs=1e-3)
+    kinds = [f.kind for f in res.findings]
+    assert "binodal_gap" in kinds and "mixed_inside_spinodal" not in kinds
+
+
+def test_a_layer_between_walls_is_no_drop_and_excuses_no_gap(tmp_path):
+    # a rich slab from wall to wall (0.25 < y < 0.75, no periodic axis) between two lean layers, the lean
+    # bulk 0.014 off the 298.15 K binodal: flat interfaces have no Gibbs-Thomson shift, so the gap over the
+    # tolerance is a warning, and no layer is a drop (drop_radius empty)
+    lean, rich = _coexisting(PAIR, 298.15, (0.12, 0.88))
+    mesh = grid_mesh((N, N), kind="quad")
+    comp = _profile(0.25 - np.abs(mesh.cell_centroids[:, 1] - 0.5), lean + 0.014, rich)
+    path = write_listing(tmp_path, [(0.0, "l_0.vtu", mesh, {"x": comp})])
+    res = measure(path, "x", model=NrtlModel(**PAIR), temperature=298.15, capillary_length=0.004,
+                  analyses=("interface", "droplets"))
+    assert np.isnan(res.steps["drop_radius"].iat[0])
+    kinds = [f.kind for f in res.findings]
+    assert "binodal_gap" in kinds and "binodal_gibbs_thomson" not in kinds
+
+
+def test_a_mixture_heated_above_its_critical_point_is_not_said_to_separate(tmp_path):
+    # 0.5 with small noise, at 298.15 K then 360 K (above the pair's critical point, 352.68 K): still mixed
+    # inside the spinodal at the first step, and at the last one stable phase, not 'separated later'
+    mesh = grid_mesh((40, 40), kind="quad")
+    noise = 0.5 + 0.002 * np.random.default_rng(3).standard_normal(mesh.n_cells)
+    path = write_listing(tmp_path, [(float(k), f"h_{k}.vtu", mesh, {"x": noise, "T": np.full(mesh.n_cells, t)})
+                                    for k, t in enumerate((298.15, 360.0))])
+    res = measure(path, "x", model=NrtlModel(**PAIR), temperature_field="T")
+    mixed = next(f for f in res.findings if f.kind == "mixed_inside_spinodal")
+    assert mixed.text.endswith("; not so at the last step")

@@ -42,9 +42,15 @@ PLATEAU_SPREADS = 50.0
 #: the fewest bulk cells on each side that :data:`PLATEAU_SPREADS` judges (our threshold: the median and
 #: quartiles of a handful of cells say nothing of a plateau)
 PLATEAU_CELLS = 10
-#: those cells lie beyond this many times the bulk's start from the contour, at the bulk's median within
-#: the equilibrium tolerance (our threshold: a tanh profile's plateau does, the crests of a cosine do not)
+#: a Gibbs-Thomson shift over this share of the binodal's gap excuses no gap: the leading-order shift
+#: (linear in l / R) does not hold there (our threshold; near a critical point it grows as 1/gap^3)
+GIBBS_THOMSON_SHARE = 0.25
+#: a plateau's flatness is judged on its cells up to this many times the bulk's start from the contour
 PLATEAU_DEPTH = 2.0
+#: a plateau's composition changes with the distance by less than this share of the bulks' distance
+#: apart per interface width (our threshold: a tanh tail 0.016 at the bulk's start and less beyond, the
+#: crests of a long wave 0.1 to 0.3)
+PLATEAU_SLOPE = 0.05
 
 
 def _positive(value, name, fix):
@@ -186,7 +192,7 @@ def mixture_step(step, mesh, ind, contour, metrics: dict, options, droplets=None
     cells = (0, 0)
     distance = None
     if contour is not None and contour.n_elements and np.isfinite(width) and width > 0:
-        # searched out to twice the bulk's start: a plateau holds its value beyond there too
+        # searched out to twice the bulk's start: a plateau's flatness is judged over measured distances
         reach = PLATEAU_DEPTH * options.bulk_widths * width
         distance = thermo.interface_distance(mesh, ind.cell, contour, level=options.level, reach=reach,
                                              measured=measured, periodic=tuple(options.periodic))
@@ -214,18 +220,29 @@ def mixture_step(step, mesh, ind, contour, metrics: dict, options, droplets=None
 
 
 def _plateau_cells(mesh, x, distance, width, found: dict, options) -> tuple:
-    """The bulk cells of the lean and the rich side that lie on a plateau: those beyond
-    :data:`PLATEAU_DEPTH` times the bulk's start, counted where their median agrees with the bulk's
-    within the equilibrium tolerance ((0, 0) otherwise). The crests of a long-wave pattern (a
-    spinodal quench's first stage) hold bulk cells beyond one width but none that far."""
-    from ..analysis import thermo
-
-    deep = thermo.bulk_compositions(mesh, x, distance, width=width, multiple=PLATEAU_DEPTH * options.bulk_widths)
+    """The bulk cells of the lean and the rich side, where that side's bulk is a plateau ((0, 0) for a
+    side that is not): the composition of its cells between the bulk's start and :data:`PLATEAU_DEPTH`
+    times it (where the distances are measured, not capped) does not change with the distance, its
+    volume-weighted least-squares slope times the interface width under :data:`PLATEAU_SLOPE` of the
+    two bulks' distance apart. A tanh profile's tail is flat there (its slope at the bulk's start is
+    about 0.016 of the jump a width), the crests of a long wave (a spinodal quench's first stage) are
+    not (0.1 to 0.3), and a drop's plateau needs no depth beyond its radius."""
+    apart = found["bulk_composition_rich"] - found["bulk_composition_lean"]
+    start, stop = options.bulk_widths * width, PLATEAU_DEPTH * options.bulk_widths * width
     out = []
-    for side in ("lean", "rich"):
-        offset = abs(deep[f"bulk_composition_{side}"] - found[f"bulk_composition_{side}"])
-        agree = offset <= options.equilibrium_tolerance
-        out.append(int(deep[f"bulk_cells_{side}"]) if agree else 0)
+    for side, sign in (("lean", -1.0), ("rich", 1.0)):
+        cells = int(found[f"bulk_cells_{side}"])
+        d = sign * distance
+        near = np.isfinite(d) & np.isfinite(x) & (d > start) & (d < stop)
+        flat = False
+        if cells >= PLATEAU_CELLS and np.count_nonzero(near) >= PLATEAU_CELLS and apart > 0:
+            w = mesh.cell_measures[near]
+            dd, xx = d[near], x[near]
+            dm, xm = np.average(dd, weights=w), np.average(xx, weights=w)
+            spread = np.average((dd - dm) ** 2, weights=w)
+            slope = np.average((dd - dm) * (xx - xm), weights=w) / spread if spread > 0 else 0.0
+            flat = abs(slope) * width <= PLATEAU_SLOPE * apart
+        out.append(cells if flat else 0)
     return tuple(out)
 
 
@@ -266,7 +283,10 @@ def _drop_phase(mesh, ind, droplets, options):
     c = np.asarray(ind.cell, dtype=float)
     other = label_droplets(mesh, 1.0 - c, level=1.0 - options.level, connectivity=options.adjacency,
                            periodic=tuple(options.periodic)).table
-    counts = [_bounded_regions(droplets), _bounded_regions(other)]
+    # the domain's extent along its own axes (bounding boxes are in space: x, y, z)
+    bounds = {"xyz"[k]: (float(mesh.bounds[0, k]), float(mesh.bounds[1, k]))
+              for k in mesh.plane_axes[:mesh.dimension]}
+    counts = [_bounded_regions(droplets, bounds), _bounded_regions(other, bounds)]
     if counts[0] != counts[1]:
         indicator = counts[0] > counts[1]
     else:
@@ -274,16 +294,31 @@ def _drop_phase(mesh, ind, droplets, options):
         finite = np.isfinite(c)
         inside = float(weights[finite & (c > options.level)].sum())
         indicator = inside <= float(weights[finite].sum()) - inside
-    return (droplets if indicator else other), "rich" if indicator == (options.phase == "upper") else "lean"
+    table = droplets if indicator else other
+    if len(table):  # the bounded regions only: a layer between walls or wrapping a period is no drop
+        table = table[_bounded(table, bounds)]
+    return table, "rich" if indicator == (options.phase == "upper") else "lean"
 
 
-def _bounded_regions(table) -> int:
-    """Regions of a droplet table that do not wrap a periodic axis."""
-    if table is None or not len(table):
-        return 0
+def _bounded(table, bounds: dict) -> np.ndarray:
+    """Per region of a droplet table, whether it is bounded: it neither wraps a periodic axis nor reaches
+    from one side of the domain to the other along an axis (a layer between walls is no drop); ``bounds``
+    the domain's (low, high) per axis name."""
+    keep = np.ones(len(table), dtype=bool)
     if "spanning" in table:
-        return int((~np.asarray(table["spanning"], dtype=bool)).sum())
-    return len(table)
+        keep &= ~np.asarray(table["spanning"], dtype=bool)
+    for axis, (lo, hi) in bounds.items():
+        low, high = f"bbox_min_{axis}", f"bbox_max_{axis}"
+        if low in table and high in table:
+            reach = 1e-6 * max(hi - lo, 1e-300)
+            keep &= ~((np.asarray(table[low], dtype=float) <= lo + reach)
+                      & (np.asarray(table[high], dtype=float) >= hi - reach))
+    return keep
+
+
+def _bounded_regions(table, bounds: dict) -> int:
+    """Regions of a droplet table that are bounded (:func:`_bounded`)."""
+    return 0 if table is None or not len(table) else int(_bounded(table, bounds).sum())
 
 
 def _drop_radius(droplets, dimension) -> float:
@@ -321,10 +356,10 @@ def _solute_step(step, mesh, x, distance, width, options) -> dict:
 
 
 def _afterwards(separated, mask) -> str:
-    """What a finding of the steps ``mask`` says of the steps after its last one: separated there, or not
-    judged (neither is the finding's own state at the last step)."""
+    """What a finding of the steps ``mask`` says of the steps after its last one: separated there, or only
+    that the last step is not in its state (one stable phase, or not judged)."""
     after = np.asarray(separated, dtype=bool)[int(np.flatnonzero(mask)[-1]) + 1:]
-    return "; separated later" if after.any() else "; not judged at the last step"
+    return "; separated later" if after.any() else "; not so at the last step"
 
 
 def _times(steps, mask) -> list:
@@ -386,7 +421,9 @@ def mixture_findings(steps, options) -> list:
     if outside.any():
         found.append(_level_finding(steps, options, outside))
     lost = outside & ~(size > 0)  # no contour, the level outside the binodal pair: that finding says why
-    mixed_seen = ((np.isfinite(lean) & np.isfinite(rich)) | (span < 0.5 * gap)
+    # both bulks measured count as mixing where they agree (within a quarter of the gap: a quench's
+    # noise), not where they lie apart without counting as separated (plateaus too small to judge)
+    mixed_seen = ((np.isfinite(lean) & np.isfinite(rich) & (rich - lean <= 0.25 * gap)) | (span < 0.5 * gap)
                   | (~(size > 0) & np.isnan(span) & ~lost))
     unknown = (state == "unstable") & ~separated & ~mixed_seen & ~lost
     if unknown.any():
@@ -421,6 +458,7 @@ def mixture_findings(steps, options) -> list:
                                          f"t = {float(steps['time'].iat[end + 1]):g}")
         shift = float(steps["gibbs_thomson_shift"].iat[end]) if "gibbs_thomson_shift" in steps else math.nan
         radius = float(steps["drop_radius"].iat[end]) if "drop_radius" in steps else math.nan
+        binodal_gap = float(steps["binodal_rich"].iat[end] - steps["binodal_lean"].iat[end])
         figures = {"equilibrium_gap": final_gap, "tolerance": tol, "time": float(steps["time"].iat[end]),
                    "drop_radius": _finite(radius), "gibbs_thomson_shift": _finite(shift),
                    "at_last_step": bool(end == last)}
@@ -432,7 +470,7 @@ def mixture_findings(steps, options) -> list:
             found.append(Finding("binodal_reached", "note",
                                  f"bulk compositions on the binodal within {tol:g} from t = {reached:g} "
                                  f"(gap {final_gap:.3g} at t = {figures['time']:g}){later}", figures))
-        elif np.isfinite(shift) and final_gap <= tol + shift:
+        elif np.isfinite(shift) and final_gap <= tol + shift and shift <= GIBBS_THOMSON_SHARE * binodal_gap:
             found.append(Finding("binodal_gibbs_thomson", "note",
                                  f"bulk compositions off the planar binodal by {final_gap:.3g} at "
                                  f"t = {figures['time']:g}, within the Gibbs-Thomson shift {shift:.3g} expected "
@@ -444,6 +482,10 @@ def mixture_findings(steps, options) -> list:
                 text += f"; drop radius {radius:.3g}"
                 if np.isfinite(shift):
                     text += f", Gibbs-Thomson shift {shift:.3g}"
+                    if shift > GIBBS_THOMSON_SHARE * binodal_gap:  # (the leading order fails there)
+                        text += (f" (over {GIBBS_THOMSON_SHARE:g} of the binodal's gap {binodal_gap:.3g}: the "
+                                 "leading-order shift does not hold, drops this small near the critical point "
+                                 "may dissolve)")
             text += later
             found.append(Finding("binodal_gap", "warning", text, figures))
     return found
