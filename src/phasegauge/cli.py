@@ -329,7 +329,8 @@ def run(recipe, overwrite, resume, workers, threads, strict, quiet):
 
 @main.command()
 @click.argument("model_file")
-@click.option("--temperature", "-T", type=float, default=None, help="Temperature in K: binodal, spinodal, critical point.")
+@click.option("--temperature", "-T", type=float, default=None,
+              help="Temperature in K: binodal, spinodal, critical point.")
 @click.option("--temperatures", default=None, help="LO,HI in K: the phase diagram over this range (needs -o).")
 @click.option("--count", type=int, default=200, show_default=True, help="Temperatures in the phase diagram.")
 @click.option("--json", "as_json", is_flag=True, help="Print one JSON object instead of text.")

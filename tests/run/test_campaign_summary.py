@@ -103,7 +103,7 @@ def test_runs_ending_at_one_time_to_round_off_give_no_warning():
         return pd.DataFrame({"run": ["a", "b"], "time": last_times, "steps": steps, "skipped_steps": skipped})
 
     times = [np.array([0.0, 1.0, 2.0]), np.array([0.0, 1.0, 2.0])]
-    # within 1e-6 of the median output interval (1): the pairing reach of the convergence command (our threshold)
+    # within 1e-6 of the median output interval (1): the span reach of the convergence command (our threshold)
     assert campaign_warning(table([2.0, 2.0 - 1e-7]), times) is None
     said = campaign_warning(table([2.0, 2.0 - 1e-5]), times)
     assert "1 run ends before t = 2, the latest run's last time (b: 1.99999)" in said

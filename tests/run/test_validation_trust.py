@@ -166,3 +166,18 @@ def test_the_python_sampler_takes_the_same_rule_for_points_without_z(tmp_path):
     step = Series(tmp_path / "xz").read(0)
     got = sample_points(step.mesh, np.asarray(step.fields.point_data["f"]), [[0.25, 0.0, 0.3]])
     assert got[0] == pytest.approx(0.5 + 0.3 * 0.25 + 0.4 * 0.3)
+
+
+def test_a_measured_time_at_a_run_end_accumulated_in_floating_point_is_inside_the_run():
+    # steps at 0, 0.1, 0.2 and 0.2999999 (a time accumulated by the solver) and a value measured at 0.3:
+    # the run covers it within 1e-6 of its output interval, as the convergence pairing and the reference
+    # checks take it (span_reach); the simulated value is the run's last (linear interpolation clamps)
+    from phasegauge.analysis._validation import validation_table
+
+    times = np.array([0.0, 0.1, 0.2, 0.2999999])
+    simulated = np.array([[1.0], [2.0], [3.0], [4.0]])
+    table = validation_table([(0.0, 0.0, 0.0, 4.0, 0.3, 0.1)], times, simulated)
+    row = table[table["time"] == 0.3].iloc[0]
+    assert row["simulated"] == pytest.approx(4.0, abs=1e-5)
+    beyond = validation_table([(0.0, 0.0, 0.0, 4.0, 0.31, 0.1)], times, simulated)
+    assert np.isnan(beyond[beyond["time"] == 0.31].iloc[0]["simulated"])

@@ -362,7 +362,8 @@ _CAUSES = (("Newton's method on isoactivity settled neither from outside the spi
             "where the pair's middle is lost in the round-off of the free energy", "take a temperature a relative "
             "1e-13 or more from the critical temperature"))
 #: an unstable range narrower than this (in mole fraction) is within round-off of a critical point (the
-#: binodal converges down to about 7e-8, a regular solution 1e-14 above A = 2)
+#: binodal converges down to about 7e-8; a regular solution is refused from about 2e-14 above A = 2 down,
+#: measured: refused at 3e-15, 5e-15 and 2e-14, solved at 1e-14 and 2e-15, round-off deciding)
 _ROUND_OFF_SPINODAL = 1e-7
 
 

@@ -23,7 +23,8 @@ import numpy as np
 from ..errors import OptionError
 
 __all__ = ["representative_cell_size", "grid_convergence", "convergence_table", "droplet_integrals", "paired_times",
-           "span_reach", "PAIRING_TOLERANCE", "GCI_SAFETY_FACTOR", "CONVERGENCE_FIELDS", "CONVERGENCE_COLUMNS"]
+           "span_reach", "covered_span", "SPAN_REACH_SHARE", "GCI_SAFETY_FACTOR", "CONVERGENCE_FIELDS",
+           "CONVERGENCE_COLUMNS"]
 
 #: safety factor of the fine-grid GCI for three meshes (Roache 1998; Celik et al. 2008)
 GCI_SAFETY_FACTOR = 1.25
@@ -259,11 +260,11 @@ def droplet_integrals(droplets):
 
 #: a run's time span reaches this share of the median output interval beyond its first and last
 #: output (a run ending 1e-7 before the others still pairs at their last time; our threshold)
-PAIRING_TOLERANCE = 1e-6
+SPAN_REACH_SHARE = 1e-6
 
 
 def span_reach(*runs) -> float:
-    """How far a run's time span reaches beyond its first and last output: :data:`PAIRING_TOLERANCE`
+    """How far a run's time span reaches beyond its first and last output: :data:`SPAN_REACH_SHARE`
     of the median output interval of the runs' finite times (0 with no interval).
 
     Parameters
@@ -273,13 +274,21 @@ def span_reach(*runs) -> float:
     """
     spans = [np.asarray(t, dtype=float).ravel() for t in runs]
     intervals = np.concatenate([np.diff(np.unique(t[np.isfinite(t)])) for t in spans] or [np.empty(0)])
-    return PAIRING_TOLERANCE * float(np.median(intervals)) if len(intervals) else 0.0
+    return SPAN_REACH_SHARE * float(np.median(intervals)) if len(intervals) else 0.0
+
+
+def covered_span(times, reach: float) -> tuple[float, float]:
+    """The time span a run's outputs ``times`` (finite, not empty) cover: their first and last time
+    widened by ``reach`` (:func:`span_reach`), and by at least 1e-12 of the time for round-off."""
+    t = np.asarray(times, dtype=float)
+    low, high = float(np.min(t)), float(np.max(t))
+    return low - max(reach, 1e-12 * max(1.0, abs(low))), high + max(reach, 1e-12 * max(1.0, abs(high)))
 
 
 def paired_times(times_fine, times_medium, times_coarse) -> np.ndarray:
     """The times at which three runs are compared: the fine run's times inside every run's time span.
 
-    Each span reaches :data:`PAIRING_TOLERANCE` of the median output interval of the three runs (at
+    Each span reaches :data:`SPAN_REACH_SHARE` of the median output interval of the three runs (at
     least 1e-12 of the time, for round-off) beyond its first and last time. A run with one step (a
     steady result) spans every time; three one-step runs pair at the fine time.
     """
@@ -289,9 +298,8 @@ def paired_times(times_fine, times_medium, times_coarse) -> np.ndarray:
     keep = np.ones(fine.shape, dtype=bool)
     for t in spans[1:]:
         if len(t) > 1:
-            low, high = t.min(), t.max()
-            keep &= fine >= low - max(reach, 1e-12 * max(1.0, abs(low)))
-            keep &= fine <= high + max(reach, 1e-12 * max(1.0, abs(high)))
+            first, last = covered_span(t, reach)
+            keep &= (fine >= first) & (fine <= last)
     return fine[keep]
 
 
@@ -328,7 +336,7 @@ def convergence_table(fine, medium, coarse, *, cell_sizes, safety_factor: float 
         ``extrapolated_relative_error_fine``, ``gci_medium``, ``asymptotic_ratio``,
         ``oscillatory`` and ``divergent``. The medium and coarse values are interpolated
         linearly in time at the fine run's times (exact where the times agree; a time within
-        the pairing tolerance beyond a run's last output takes that output's value). Quantities are
+        the span reach beyond a run's last output takes that output's value). Quantities are
         the numeric columns all three tables share, except step numbers and time.
 
     References

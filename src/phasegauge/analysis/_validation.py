@@ -5,6 +5,7 @@ from __future__ import annotations
 import numpy as np
 
 from ..errors import OptionError
+from ._grid_convergence import covered_span, span_reach
 
 __all__ = ["validation_table", "validation_summary", "VALIDATION_COLUMNS", "SUMMARY_COLUMNS"]
 
@@ -62,7 +63,8 @@ def validation_table(measured, times, simulated, *, steps=None):
             j = np.clip(np.searchsorted(times, t, side="right") - 1, 0, len(times) - 2)
             w = (t - times[j]) / (times[j + 1] - times[j])
             sim = (1 - w) * simulated[j, k] + w * simulated[j + 1, k]
-            span = (t >= times[0] - 1e-12 * max(1.0, abs(times[0]))) & (t <= times[-1] + 1e-12 * max(1.0, abs(times[-1])))
+            first, last = covered_span(times, span_reach(times))  # (as the convergence and reference checks)
+            span = (t >= first) & (t <= last)
             sim = np.where(span, sim, np.nan)
         at = np.clip(np.searchsorted(times, t), 0, len(times) - 1)
         on_step = np.isclose(times[at], t, rtol=1e-12, atol=1e-12 * max(1.0, float(np.abs(times).max())))

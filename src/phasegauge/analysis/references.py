@@ -18,7 +18,7 @@ Reference tables have one row per checked quantity with the columns
     checked with a ``NAME`` row at that time), or one whose ``time_of_`` row's band
     the run's outputs do not cover.
 ``time``
-    Time of a ``NAME`` check (the run covers it to :data:`PAIRING_TOLERANCE` of its
+    Time of a ``NAME`` check (the run covers it to :data:`~._grid_convergence.SPAN_REACH_SHARE` of its
     median output interval, for round-off in accumulated times); empty for extrema
     (a time there is refused).
 ``value``
@@ -44,11 +44,11 @@ import numpy as np
 import pandas as pd
 
 from ..errors import OptionError
-from ._grid_convergence import PAIRING_TOLERANCE, span_reach
+from ._grid_convergence import covered_span, span_reach
 
 __all__ = ["RISING_BUBBLE_CASE1", "RISING_BUBBLE_CASE1_SOURCE", "check_rising_bubble",
            "check_against_table", "check_reference_table", "bubble_history", "largest_droplet",
-           "reference_columns", "CHECK_COLUMNS", "NOT_APPLICABLE", "PAIRING_TOLERANCE"]
+           "reference_columns", "CHECK_COLUMNS", "NOT_APPLICABLE"]
 
 #: columns of every check result
 CHECK_COLUMNS = ("quantity", "value", "time", "reference", "reference_low", "reference_high",
@@ -171,10 +171,8 @@ def _finite(t: np.ndarray, v: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
 
 def _reach(t: np.ndarray) -> tuple[float, float]:
     """The time span the outputs ``t`` (sorted, finite, not empty) cover: their first and last time widened
-    by :data:`PAIRING_TOLERANCE` of the median output interval (at least 1e-12 of the time, for round-off)."""
-    reach = span_reach(t)
-    return (float(t[0]) - max(reach, 1e-12 * max(1.0, abs(t[0]))),
-            float(t[-1]) + max(reach, 1e-12 * max(1.0, abs(t[-1]))))
+    by the span reach of the median output interval (:func:`._grid_convergence.covered_span`)."""
+    return covered_span(t, span_reach(t))
 
 
 def _extremum(t: np.ndarray, v: np.ndarray, kind: str) -> tuple[float, float, str]:

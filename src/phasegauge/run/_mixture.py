@@ -29,18 +29,19 @@ MIXTURE_COLUMNS = ("temperature", "mean_composition", "bulk_composition_lean", "
 #: steps.csv columns of a run with a solute
 SOLUTE_COLUMNS = ("solute_lean", "solute_rich", "partition_coefficient", "extraction_progress",
                   "lever_rule_residual")
-#: bulks apart by more than this many times the sum of their spreads (half interquartile ranges), and
-#: by a quarter of the binodal's gap, are separated under half its gap too (see :func:`_separated`; our
-#: rule, not a published one)
+#: bulks apart by more than this share of the binodal's gap and :data:`SEPARATION_SPREADS` times the sum
+#: of their spreads are separated under half its gap too; bulks closer than it are mixed (see
+#: :func:`_separated` and :func:`mixture_findings`; our rule, not a published one)
+SEPARATION_SHARE = 0.25
+#: see :data:`SEPARATION_SHARE` (spreads: half interquartile ranges)
 SEPARATION_SPREADS = 4.0
-#: bulks apart by more than this many times the sum of their spreads, each of at least
-#: :data:`PLATEAU_CELLS` cells, are flat plateaus: separated whatever the binodal's gap (our threshold:
-#: a tanh profile's tail beyond one width is 0.35 % of the jump, so its plateaus read 140 or more, and
-#: 134 to 818 in Cahn-Hilliard runs; the peaks of Gaussian-smoothed noise read 1.7 to 12 with 3 cells
-#: or more a side, 27.5 with 1 and 2)
+#: bulks on flat plateaus (:func:`_plateau_cells`) apart by more than this many times the sum of their
+#: spreads are separated whatever the binodal's gap (our threshold: a tanh profile's tail beyond one
+#: width is 0.35 % of the jump, so its plateaus read 140 or more, and 134 to 818 in Cahn-Hilliard runs;
+#: the peaks of Gaussian-smoothed noise read 1.7 to 12 with 3 cells or more a side, 27.5 with 1 and 2)
 PLATEAU_SPREADS = 50.0
-#: the fewest bulk cells on each side that :data:`PLATEAU_SPREADS` judges (our threshold: the median and
-#: quartiles of a handful of cells say nothing of a plateau)
+#: the fewest bulk cells on a side, and cells judged for its flatness, that make a plateau (our
+#: threshold: the median and quartiles of a handful of cells say nothing of a plateau)
 PLATEAU_CELLS = 10
 #: a Gibbs-Thomson shift over this share of the binodal's gap excuses no gap: the leading-order shift
 #: (linear in l / R) does not hold there (our threshold; near a critical point it grows as 1/gap^3)
@@ -48,9 +49,9 @@ GIBBS_THOMSON_SHARE = 0.25
 #: a plateau's flatness is judged on its cells up to this many times the bulk's start from the contour
 PLATEAU_DEPTH = 2.0
 #: a plateau's composition changes with the distance by less than this share of the bulks' distance
-#: apart per interface width (our threshold: a tanh tail 0.016 at the bulk's start and less beyond, the
-#: crests of a long wave 0.1 to 0.3)
-PLATEAU_SLOPE = 0.05
+#: apart per interface width (our threshold: a tanh tail 0.016 at the bulk's start and less beyond, drops
+#: of 1.2-3 widths on plateaus 0.002-0.005 measured; the crests of a seeded cosine 0.045-0.07)
+PLATEAU_SLOPE = 0.02
 
 
 def _positive(value, name, fix):
@@ -189,7 +190,7 @@ def mixture_step(step, mesh, ind, contour, metrics: dict, options, droplets=None
         width = metrics.get("width_second_moment", math.nan)
     bulk = {"bulk_composition_lean": math.nan, "bulk_composition_rich": math.nan,
             "bulk_spread_lean": math.nan, "bulk_spread_rich": math.nan}
-    cells = (0, 0)
+    cells = (False, False)
     distance = None
     if contour is not None and contour.n_elements and np.isfinite(width) and width > 0:
         # searched out to twice the bulk's start: a plateau's flatness is judged over measured distances
@@ -220,13 +221,13 @@ def mixture_step(step, mesh, ind, contour, metrics: dict, options, droplets=None
 
 
 def _plateau_cells(mesh, x, distance, width, found: dict, options) -> tuple:
-    """The bulk cells of the lean and the rich side, where that side's bulk is a plateau ((0, 0) for a
-    side that is not): the composition of its cells between the bulk's start and :data:`PLATEAU_DEPTH`
-    times it (where the distances are measured, not capped) does not change with the distance, its
+    """Whether the lean and the rich side's bulk is a plateau: :data:`PLATEAU_CELLS` bulk cells or more,
+    and the composition of its cells between the bulk's start and :data:`PLATEAU_DEPTH` times it (where
+    the distances are measured, not capped) does not change with the distance, its
     volume-weighted least-squares slope times the interface width under :data:`PLATEAU_SLOPE` of the
     two bulks' distance apart. A tanh profile's tail is flat there (its slope at the bulk's start is
     about 0.016 of the jump a width), the crests of a long wave (a spinodal quench's first stage) are
-    not (0.1 to 0.3), and a drop's plateau needs no depth beyond its radius."""
+    not (0.045 to 0.07 for a seeded cosine), and a drop's plateau needs no depth beyond its radius."""
     apart = found["bulk_composition_rich"] - found["bulk_composition_lean"]
     start, stop = options.bulk_widths * width, PLATEAU_DEPTH * options.bulk_widths * width
     out = []
@@ -240,17 +241,18 @@ def _plateau_cells(mesh, x, distance, width, found: dict, options) -> tuple:
             dd, xx = d[near], x[near]
             dm, xm = np.average(dd, weights=w), np.average(xx, weights=w)
             spread = np.average((dd - dm) ** 2, weights=w)
-            slope = np.average((dd - dm) * (xx - xm), weights=w) / spread if spread > 0 else 0.0
-            flat = abs(slope) * width <= PLATEAU_SLOPE * apart
-        out.append(cells if flat else 0)
+            # (cells all at one distance say nothing of a slope: not judged flat)
+            flat = spread > 0 and abs(np.average((dd - dm) * (xx - xm), weights=w) / spread) * width <= (
+                PLATEAU_SLOPE * apart)
+        out.append(bool(flat))
     return tuple(out)
 
 
 def _separated(bulk: dict, cells, binodal_lean: float, binodal_rich: float, options) -> bool:
     """Whether both bulks were measured and lie apart: by more than the tolerance, and either by half the
     binodal's gap (where the model has one), or by a quarter of it and :data:`SEPARATION_SPREADS` times
-    the sum of their spreads, or as flat plateaus (``cells``: the lean and the rich side's cells on a
-    plateau, :func:`_plateau_cells`) by :data:`PLATEAU_SPREADS` times the sum of their spreads whatever
+    the sum of their spreads, or as flat plateaus (``cells``: whether the lean and the rich side are,
+    :func:`_plateau_cells`) by :data:`PLATEAU_SPREADS` times the sum of their spreads whatever
     the gap. A quench's noise sets bulks
     a few hundredths apart on the two sides of its contour, each about as wide as that; the peaks of an
     early spinodal pattern are narrow but lie a few hundredths apart too (neither is a separation); two
@@ -265,8 +267,9 @@ def _separated(bulk: dict, cells, binodal_lean: float, binodal_rich: float, opti
     apart = rich - lean
     spreads = bulk["bulk_spread_lean"] + bulk["bulk_spread_rich"]
     gap = binodal_rich - binodal_lean
-    flat = min(cells) >= PLATEAU_CELLS and apart > PLATEAU_SPREADS * spreads
-    return bool(apart > 0.5 * gap or (apart > 0.25 * gap and apart > SEPARATION_SPREADS * spreads) or flat)
+    flat = all(cells) and apart > PLATEAU_SPREADS * spreads
+    return bool(apart > 0.5 * gap or (apart > SEPARATION_SHARE * gap and apart > SEPARATION_SPREADS * spreads)
+                or flat)
 
 
 def _drop_phase(mesh, ind, droplets, options):
@@ -322,13 +325,11 @@ def _bounded_regions(table, bounds: dict) -> int:
 
 
 def _drop_radius(droplets, dimension) -> float:
-    """Median equivalent radius of the drops from their volume beyond the level (drops that wrap
-    around a periodic box are left out); NaN without drops."""
+    """Median equivalent radius of the drops from their volume beyond the level (the bounded regions
+    :func:`_drop_phase` keeps); NaN without drops."""
     if droplets is None or not len(droplets) or "threshold_volume" not in droplets:
         return math.nan
     volume = np.asarray(droplets["threshold_volume"], dtype=float)
-    if "spanning" in droplets:
-        volume = volume[~np.asarray(droplets["spanning"], dtype=bool)]
     volume = volume[volume > 0]
     if not volume.size:
         return math.nan
@@ -423,7 +424,7 @@ def mixture_findings(steps, options) -> list:
     lost = outside & ~(size > 0)  # no contour, the level outside the binodal pair: that finding says why
     # both bulks measured count as mixing where they agree (within a quarter of the gap: a quench's
     # noise), not where they lie apart without counting as separated (plateaus too small to judge)
-    mixed_seen = ((np.isfinite(lean) & np.isfinite(rich) & (rich - lean <= 0.25 * gap)) | (span < 0.5 * gap)
+    mixed_seen = ((np.isfinite(lean) & np.isfinite(rich) & (rich - lean <= SEPARATION_SHARE * gap)) | (span < 0.5 * gap)
                   | (~(size > 0) & np.isnan(span) & ~lost))
     unknown = (state == "unstable") & ~separated & ~mixed_seen & ~lost
     if unknown.any():
@@ -431,8 +432,12 @@ def mixture_findings(steps, options) -> list:
         still = bool(unknown[last])
         spanning = (", with compositions spanning half the binodal's gap or more"
                     if np.isfinite(span[unknown]).all() else "")  # (not known without the conservation analysis)
-        text = (f"no bulk beyond {options.bulk_widths:g} interface width{'s' if options.bulk_widths != 1 else ''} "
-                f"on one side or both inside the spinodal ({int(unknown.sum())} step(s), t = {times[0]:g} to "
+        both = bool((np.isfinite(lean) & np.isfinite(rich))[unknown].all())
+        what = ("bulk compositions apart by more than a quarter of the binodal's gap but neither on flat plateaus "
+                "nor far apart against their spreads" if both else
+                f"no bulk beyond {options.bulk_widths:g} interface width{'s' if options.bulk_widths != 1 else ''} "
+                "on one side or both")
+        text = (f"{what} inside the spinodal ({int(unknown.sum())} step(s), t = {times[0]:g} to "
                 f"{times[-1]:g}){spanning}, so whether the phases separated is not judged there: a bulk that has "
                 "not reached a plateau widens the measured interface (see interface_width) until no bulk is left"
                 + ("" if still else _afterwards(separated, unknown)))

@@ -285,8 +285,10 @@ def run_sample_tables(done, options, numbered: bool = False):
                       "no times (numbered 0, 1, 2 ...); give a 'time,path' listing of the steps", ""))
     elif timed.any():
         t = np.array([entry[4] for entry in rows])[timed]
-        scale = 1e-12 * max(1.0, float(np.abs(times).max()))
-        outside = (t < times.min() - scale) | (t > times.max() + scale)
+        from ..analysis._grid_convergence import covered_span, span_reach
+
+        first, last = covered_span(times, span_reach(times))
+        outside = (t < first) | (t > last)
         if outside.any():
             notes.append((PhasegaugeWarning, f"{int(outside.sum())} of {t.size} measured value(s) with times lie "
                           f"outside the steps' times ({times.min():.6g} to {times.max():.6g}; measured "

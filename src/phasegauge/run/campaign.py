@@ -107,8 +107,9 @@ def campaign_warning(table, times) -> str | None:
     """One line on the runs whose figures are not of the same time as the others', or None.
 
     A run that skipped steps, and runs whose last measured time (``time``) ends before the latest
-    one's by more than the pairing reach of the runs' outputs (:func:`~phasegauge.analysis.convergence.
-    span_reach`; at least 1e-12 of the time, for round-off). ``times``: every run's output times (its
+    one's by more than the span reach of the runs' outputs
+    (:func:`~phasegauge.analysis.convergence.span_reach`; at least 1e-12 of the time, for round-off).
+    ``times``: every run's output times (its
     steps.csv ``time``). A run of one step that skipped none (a steady result) is not compared.
     """
     from ..analysis.convergence import span_reach
