@@ -14,7 +14,7 @@ from ..model.axes import AXIS_NAMES
 from ..model.mesh import Mesh
 from ..model._centroids import cell_centroids_of
 
-__all__ = ["TABLE_COLUMNS", "volume_integrals", "droplet_boxes", "contour_owners", "shape_factors",
+__all__ = ["TABLE_COLUMNS", "volume_integrals", "droplet_boxes", "box_contacts", "contour_owners", "shape_factors",
            "mean_velocity", "droplet_table"]
 
 #: columns of :attr:`DropletLabels.table`, in order
@@ -200,3 +200,19 @@ def droplet_table(mesh: Mesh, columns: dict, *, centroid, bmin, bmax, velocity_m
         for a, name in enumerate(AXIS_NAMES):
             table[f"{prefix}_{name}"] = values[:, a]
     return table[list(TABLE_COLUMNS)]
+
+
+def box_contacts(table: pd.DataFrame, bounds) -> dict:
+    """Per axis the domain spans (``bounds``: ``[[xmin, ymin, zmin], [xmax, ymax, zmax]]``, as
+    :attr:`Mesh.bounds`), whether each row's box (``bbox_min_*``, ``bbox_max_*`` of a droplet table)
+    reaches the domain's low side and its high side: ``{axis name: (low, high)}``, within 1e-9 of the
+    domain's largest extent (the box's corners are mesh points, so round-off only)."""
+    bounds = np.asarray(bounds, dtype=float)
+    extent = bounds[1] - bounds[0]
+    near = 1e-9 * float(np.max(extent)) if np.max(extent) > 0 else 0.0
+    out = {}
+    for k, axis in enumerate(AXIS_NAMES):
+        if extent[k] > 0 and f"bbox_min_{axis}" in table and f"bbox_max_{axis}" in table:
+            out[axis] = (table[f"bbox_min_{axis}"].to_numpy(dtype=float) <= bounds[0, k] + near,
+                         table[f"bbox_max_{axis}"].to_numpy(dtype=float) >= bounds[1, k] - near)
+    return out

@@ -286,9 +286,7 @@ def _drop_phase(mesh, ind, droplets, options):
     c = np.asarray(ind.cell, dtype=float)
     other = label_droplets(mesh, 1.0 - c, level=1.0 - options.level, connectivity=options.adjacency,
                            periodic=tuple(options.periodic)).table
-    # the domain's extent along its own axes (bounding boxes are in space: x, y, z)
-    bounds = {"xyz"[k]: (float(mesh.bounds[0, k]), float(mesh.bounds[1, k]))
-              for k in mesh.plane_axes[:mesh.dimension]}
+    bounds = mesh.bounds  # (the boxes are in space: x, y, z)
     counts = [_bounded_regions(droplets, bounds), _bounded_regions(other, bounds)]
     if counts[0] != counts[1]:
         indicator = counts[0] > counts[1]
@@ -303,23 +301,22 @@ def _drop_phase(mesh, ind, droplets, options):
     return table, "rich" if indicator == (options.phase == "upper") else "lean"
 
 
-def _bounded(table, bounds: dict) -> np.ndarray:
+def _bounded(table, bounds) -> np.ndarray:
     """Per region of a droplet table, whether it is bounded: it neither wraps a periodic axis nor reaches
-    from one side of the domain to the other along an axis (a layer between walls is no drop); ``bounds``
-    the domain's (low, high) per axis name."""
+    from one side of the domain to the other along an axis (a layer between walls is no drop; the
+    tracking check's rule for a drop confined between walls, :func:`.._droplet_measures.box_contacts`);
+    ``bounds`` the domain's :attr:`Mesh.bounds`."""
+    from ..analysis._droplet_measures import box_contacts
+
     keep = np.ones(len(table), dtype=bool)
     if "spanning" in table:
         keep &= ~np.asarray(table["spanning"], dtype=bool)
-    for axis, (lo, hi) in bounds.items():
-        low, high = f"bbox_min_{axis}", f"bbox_max_{axis}"
-        if low in table and high in table:
-            reach = 1e-6 * max(hi - lo, 1e-300)
-            keep &= ~((np.asarray(table[low], dtype=float) <= lo + reach)
-                      & (np.asarray(table[high], dtype=float) >= hi - reach))
+    for low, high in box_contacts(table, bounds).values():
+        keep &= ~(low & high)
     return keep
 
 
-def _bounded_regions(table, bounds: dict) -> int:
+def _bounded_regions(table, bounds) -> int:
     """Regions of a droplet table that are bounded (:func:`_bounded`)."""
     return 0 if table is None or not len(table) else int(_bounded(table, bounds).sum())
 

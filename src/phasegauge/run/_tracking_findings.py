@@ -157,14 +157,11 @@ def _touches(droplets, bounds: np.ndarray) -> np.ndarray:
     """Whether each droplet's box reaches the domain's box on one side of an axis the domain spans (as a
     drop leaving through an outlet does). A drop reaching both sides of an axis spans the domain there (a
     drop confined between a channel's walls, as in a microchannel or a slab): not leaving along it."""
-    extent = bounds[1] - bounds[0]
-    near = 1e-9 * float(np.max(extent)) if np.max(extent) > 0 else 0.0
+    from ..analysis._droplet_measures import box_contacts
+
     touches = np.zeros(len(droplets), dtype=bool)
-    for k, axis in enumerate("xyz"):
-        if extent[k] > 0 and f"bbox_min_{axis}" in droplets:
-            low = droplets[f"bbox_min_{axis}"].to_numpy(dtype=float) <= bounds[0, k] + near
-            high = droplets[f"bbox_max_{axis}"].to_numpy(dtype=float) >= bounds[1, k] - near
-            touches |= low ^ high
+    for low, high in box_contacts(droplets, bounds).values():
+        touches |= low ^ high
     return touches
 
 
