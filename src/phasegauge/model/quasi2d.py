@@ -19,7 +19,7 @@ import numpy as np
 from .cells import FACES
 from .mesh import Mesh
 
-__all__ = ["Quasi2D", "one_cell_thick", "flat_mesh_if_built", "PLANE_TOLERANCE"]
+__all__ = ["Quasi2D", "one_cell_thick", "as_measured", "flat_mesh_if_built", "PLANE_TOLERANCE"]
 
 #: points lie on a plane when within this fraction of the mesh's largest extent of it
 PLANE_TOLERANCE = 1e-9
@@ -57,6 +57,15 @@ class Quasi2D:
     def record(self) -> dict:
         """A plain record for tables, the manifest and the report."""
         return {"dimension": 2, "quasi_2d": True, "thin_axis": self.axis_name, "depth": float(self.depth)}
+
+
+def as_measured(mesh: Mesh, *, keep_3d: bool = False) -> Quasi2D | None:
+    """The :class:`Quasi2D` record of a mesh as measure reads it: a 3D mesh one cell thick is measured
+    on the 2D mesh of its lower plane, per unit depth, unless ``keep_3d``; None where it is read as it
+    is (2D, thicker, or ``keep_3d``). The one rule for measure, compare and the convergence sizes."""
+    if keep_3d or mesh.dimension != 3:
+        return None
+    return one_cell_thick(mesh)
 
 
 def one_cell_thick(mesh: Mesh) -> Quasi2D | None:

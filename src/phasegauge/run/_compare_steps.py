@@ -133,9 +133,9 @@ def _as_measured(mesh):
     """The mesh as measure reads it: a 3D mesh one cell thick as the 2D mesh of its lower plane, so
     the common grid, and the sampling in the measure runs' workers, are 2D there too; and whether it
     was so read."""
-    from ..model.quasi2d import one_cell_thick
+    from ..model.quasi2d import as_measured
 
-    flat = one_cell_thick(mesh) if mesh.dimension == 3 else None
+    flat = as_measured(mesh)
     return (mesh, False) if flat is None else (flat.mesh, True)
 
 

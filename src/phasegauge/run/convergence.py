@@ -123,7 +123,7 @@ def _measured_as_2d(source: ConvergenceSource, options) -> bool:
 
 def _mesh_size(source: ConvergenceSource, known: bool, options=None) -> None:
     from ..io import Series
-    from ..model.quasi2d import one_cell_thick
+    from ..model.quasi2d import as_measured
 
     if known:
         return
@@ -135,10 +135,9 @@ def _mesh_size(source: ConvergenceSource, known: bool, options=None) -> None:
         warnings.simplefilter("ignore", PhasegaugeWarning)
         with Series(source.series_path) as series:
             mesh = series.read_mesh(0)
-    if mesh.dimension == 3 and _measured_as_2d(source, options):
-        flat = one_cell_thick(mesh)  # measured per unit depth on its face plane (run.step.flatten_step)
-        if flat is not None:
-            mesh, source.depth = flat.mesh, float(flat.depth)
+    flat = as_measured(mesh, keep_3d=not _measured_as_2d(source, options))  # (as run.step.flatten_step)
+    if flat is not None:
+        mesh, source.depth = flat.mesh, float(flat.depth)
     source.n_cells = int(mesh.n_whole_cells)
     source.dimension = int(mesh.dimension)
     source.total_measure = float(mesh.total_measure)

@@ -162,13 +162,11 @@ def flatten_step(step, options):
     :class:`~phasegauge.model.quasi2d.Quasi2D` record or None. Cell data carries over
     unchanged (the cells keep their order); point data is the lower plane's.
     """
-    if getattr(options, "keep_3d", False) or step.mesh.dimension != 3:
-        return step, None
     from dataclasses import replace
 
-    from ..model.quasi2d import one_cell_thick
+    from ..model.quasi2d import as_measured
 
-    flat = one_cell_thick(step.mesh)
+    flat = as_measured(step.mesh, keep_3d=getattr(options, "keep_3d", False))
     if flat is None:
         return step, None
     fields = replace(step.fields, point_data={name: np.asarray(values)[flat.points]
