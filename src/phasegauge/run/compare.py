@@ -285,11 +285,16 @@ def _checked_reference_table(path):
     from ..analysis.droplets import TABLE_COLUMNS
     from ..analysis.references import check_reference_table, reference_columns
     from ..io import read_reference_table
+    from ..analysis._equilibrium import EQUILIBRIUM_KEYS
+    from ..analysis._interface_width import METRIC_KEYS
+    from ..analysis._level_set import LEVEL_SET_COLUMNS
     from ._mixture import MIXTURE_COLUMNS, SOLUTE_COLUMNS
     from .options import MORE_STEP_COLUMNS, STEP_COLUMNS
 
     table = check_reference_table(read_reference_table(path))
-    known = set(STEP_COLUMNS + MORE_STEP_COLUMNS + MIXTURE_COLUMNS + SOLUTE_COLUMNS + TABLE_COLUMNS + ("track",))
+    # (the analyses' own column constants too: a column added there is known here without a copy)
+    known = set(STEP_COLUMNS + MORE_STEP_COLUMNS + METRIC_KEYS + EQUILIBRIUM_KEYS + LEVEL_SET_COLUMNS
+                + MIXTURE_COLUMNS + SOLUTE_COLUMNS + TABLE_COLUMNS + ("track",))
     unknown = [c for c in reference_columns(table) if c not in known]
     if unknown:
         raise OptionError(f"the reference table names {', '.join(map(repr, unknown))}, neither a steps.csv column "
