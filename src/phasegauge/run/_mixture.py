@@ -35,7 +35,7 @@ SOLUTE_COLUMNS = ("solute_lean", "solute_rich", "partition_coefficient", "extrac
 SEPARATION_SHARE = 0.25
 #: see :data:`SEPARATION_SHARE` (spreads: half interquartile ranges)
 SEPARATION_SPREADS = 4.0
-#: bulks on flat plateaus (:func:`_plateau_cells`) apart by more than this many times the sum of their
+#: bulks on flat plateaus (:func:`_flat_sides`) apart by more than this many times the sum of their
 #: spreads are separated whatever the binodal's gap (our threshold: a tanh profile's tail beyond one
 #: width is 0.35 % of the jump, so its plateaus read 140 or more, and 134 to 818 in Cahn-Hilliard runs;
 #: the peaks of Gaussian-smoothed noise read 1.7 to 12 with 3 cells or more a side, 27.5 with 1 and 2)
@@ -190,7 +190,7 @@ def mixture_step(step, mesh, ind, contour, metrics: dict, options, droplets=None
         width = metrics.get("width_second_moment", math.nan)
     bulk = {"bulk_composition_lean": math.nan, "bulk_composition_rich": math.nan,
             "bulk_spread_lean": math.nan, "bulk_spread_rich": math.nan}
-    cells = (False, False)
+    flat_sides = (False, False)
     distance = None
     if contour is not None and contour.n_elements and np.isfinite(width) and width > 0:
         # searched out to twice the bulk's start: a plateau's flatness is judged over measured distances
@@ -201,10 +201,10 @@ def mixture_step(step, mesh, ind, contour, metrics: dict, options, droplets=None
             np.negative(distance, out=distance)
         found = thermo.bulk_compositions(mesh, x, distance, width=width, multiple=options.bulk_widths)
         bulk = {k: found[k] for k in bulk}
-        cells = _plateau_cells(mesh, x, distance, width, found, options)
+        flat_sides = _flat_sides(mesh, x, distance, width, found, options)
     out.update(bulk)
     lean, rich = bulk["bulk_composition_lean"], bulk["bulk_composition_rich"]
-    out["separated"] = separated = _separated(bulk, cells, out["binodal_lean"], out["binodal_rich"], options)
+    out["separated"] = separated = _separated(bulk, flat_sides, out["binodal_lean"], out["binodal_rich"], options)
     out["equilibrium_gap"] = (thermo.equilibrium_gap(lean, rich, out["binodal_lean"], out["binodal_rich"])
                               if separated else math.nan)
     table, drop = _drop_phase(mesh, ind, droplets, options)
@@ -220,7 +220,7 @@ def mixture_step(step, mesh, ind, contour, metrics: dict, options, droplets=None
     return out
 
 
-def _plateau_cells(mesh, x, distance, width, found: dict, options) -> tuple:
+def _flat_sides(mesh, x, distance, width, found: dict, options) -> tuple:
     """Whether the lean and the rich side's bulk is a plateau: :data:`PLATEAU_CELLS` bulk cells or more,
     and the composition of its cells between the bulk's start and :data:`PLATEAU_DEPTH` times it (where
     the distances are measured, not capped) does not change with the distance, its
@@ -248,11 +248,11 @@ def _plateau_cells(mesh, x, distance, width, found: dict, options) -> tuple:
     return tuple(out)
 
 
-def _separated(bulk: dict, cells, binodal_lean: float, binodal_rich: float, options) -> bool:
+def _separated(bulk: dict, flat_sides, binodal_lean: float, binodal_rich: float, options) -> bool:
     """Whether both bulks were measured and lie apart: by more than the tolerance, and either by half the
     binodal's gap (where the model has one), or by a quarter of it and :data:`SEPARATION_SPREADS` times
-    the sum of their spreads, or as flat plateaus (``cells``: whether the lean and the rich side are,
-    :func:`_plateau_cells`) by :data:`PLATEAU_SPREADS` times the sum of their spreads whatever
+    the sum of their spreads, or as flat plateaus (``flat_sides``: whether the lean and the rich side are,
+    :func:`_flat_sides`) by :data:`PLATEAU_SPREADS` times the sum of their spreads whatever
     the gap. A quench's noise sets bulks
     a few hundredths apart on the two sides of its contour, each about as wide as that; the peaks of an
     early spinodal pattern are narrow but lie a few hundredths apart too (neither is a separation); two
@@ -267,7 +267,7 @@ def _separated(bulk: dict, cells, binodal_lean: float, binodal_rich: float, opti
     apart = rich - lean
     spreads = bulk["bulk_spread_lean"] + bulk["bulk_spread_rich"]
     gap = binodal_rich - binodal_lean
-    flat = all(cells) and apart > PLATEAU_SPREADS * spreads
+    flat = all(flat_sides) and apart > PLATEAU_SPREADS * spreads
     return bool(apart > 0.5 * gap or (apart > SEPARATION_SHARE * gap and apart > SEPARATION_SPREADS * spreads)
                 or flat)
 
