@@ -15,6 +15,7 @@ from scipy.spatial import cKDTree
 from ..model._faces import SPLIT_FACES, pairs_as_neighbours
 from ..model._grouping import unique_ints
 from ..model._whole_cells import WholeCells, whole_cell_count
+from ..model.corners import incidence_rows
 from ..model.mesh import Mesh
 
 __all__ = ["periodic_pairs", "neighbour_table", "pieces", "join_periodic"]
@@ -169,7 +170,7 @@ def pieces(mesh: Mesh, cells: np.ndarray, core: np.ndarray, neighbours: np.ndarr
     else:
         # cells and their corner points as one bipartite graph: point-connected cells
         # are in one component; points of no inside cell form their own components
-        incidence = mesh.incidence[cells[core_local]].tocoo()
+        incidence = incidence_rows(mesh, cells[core_local]).tocoo()
         n = k + mesh.n_points
         graph = sparse.coo_matrix((np.ones(incidence.nnz, dtype=np.int8),
                                    (incidence.row, k + incidence.col)), shape=(n, n))

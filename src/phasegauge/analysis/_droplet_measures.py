@@ -13,6 +13,7 @@ import pandas as pd
 from ..model.axes import AXIS_NAMES
 from ..model.mesh import Mesh
 from ..model._centroids import cell_centroids_of
+from ..model.corners import incidence_rows
 
 __all__ = ["TABLE_COLUMNS", "volume_integrals", "droplet_boxes", "box_contacts", "contour_owners", "shape_factors",
            "mean_velocity", "droplet_table"]
@@ -96,8 +97,8 @@ def contour_owners(mesh: Mesh, cells: np.ndarray, label: np.ndarray, c_near: np.
     if not ask.size or not core.size:
         return owner
     around, where = np.unique(icells[ask], return_inverse=True)
-    incidence = mesh.incidence  # (n_cells, n_points), 1 at the corners of each cell
-    touch = (incidence[around] @ incidence[cells[core]].T).tocsr()  # corners shared: (around, core)
+    # corners shared: (around, core), from those cells' rows of the cells' corner incidence
+    touch = (incidence_rows(mesh, around) @ incidence_rows(mesh, cells[core]).T).tocsr()
     touch.sort_indices()
     per_cell = np.diff(touch.indptr)
     drop = label[core[touch.indices]]

@@ -13,10 +13,13 @@ from typing import TYPE_CHECKING, NamedTuple
 
 import numpy as np
 
+from ._grouping import index_dtype
+
 if TYPE_CHECKING:  # the mesh imports this module (its geometry sums corners)
     from .mesh import Mesh
 
-__all__ = ["corner_sum", "corner_mean", "CornerExtremes", "corner_extremes", "cell_extent", "cell_gradient"]
+__all__ = ["corner_sum", "corner_mean", "CornerExtremes", "corner_extremes", "cell_extent", "cell_gradient",
+           "incidence_matrix", "incidence_rows"]
 
 #: rows per chunk of the corner passes (the temporaries stay in cache: 1 << 15 took 1.4-1.8x the
 #: time of corner_extremes on 1M hexahedra)
@@ -190,3 +193,57 @@ def cell_gradient(mesh: Mesh, c_point, *, cells=None) -> np.ndarray:
         g[ok] = np.linalg.solve(A[ok], rhs[ok][..., None])[..., 0]
         out[i0:i1] = g
     return out[inverse.ravel()]
+
+
+def incidence_matrix(mesh: Mesh):
+    """Sparse (n_cells, n_points) matrix, 1 where a point is a corner of a cell (a corner repeated
+    in a polygon or in a cell of zero measure once), made anew on every call: :attr:`Mesh.incidence`
+    keeps it, the corner sums' transposed copy (:meth:`Mesh.cell_to_point`) is made from one not kept."""
+    from scipy import sparse
+
+    nnz = sum(b.connectivity.size for b in mesh.blocks)
+    dtype = index_dtype(max(nnz, mesh.n_points) + 1)
+    indptr = np.empty(mesh.n_cells + 1, dtype=dtype)
+    indices = np.empty(nnz, dtype=dtype)
+    indptr[0] = last = 0
+    for block, start in zip(mesh.blocks, mesh.block_offsets[:-1]):
+        n, k = block.connectivity.shape
+        indptr[start + 1:start + n + 1] = np.arange(last + k, last + k * n + 1, k, dtype=dtype)
+        indices[last:last + n * k] = block.connectivity.ravel()
+        last += n * k
+    m = sparse.csr_matrix((np.ones(nnz), indices, indptr), shape=(mesh.n_cells, mesh.n_points))
+    if any(b.cell_type == "polygon" for b in mesh.blocks) or mesh._flat_cells:
+        m.sum_duplicates()
+        m.data[:] = 1.0  # a corner repeated in a degenerate cell counts once
+    return m
+
+
+def incidence_rows(mesh: Mesh, cells: np.ndarray):
+    """The rows ``cells`` of :attr:`Mesh.incidence` (sparse, (len(cells), n_points), 1 at each
+    cell's corners, a corner repeated in a degenerate cell once), made from the connectivity of
+    those cells only: the mesh-wide matrix (13 MB at 0.25M tetrahedra) is not made or kept for
+    a few rows. A view of whole cells (:class:`._whole_cells.WholeCells`, whose rows join their
+    pieces' corners) gives the rows of its own matrix."""
+    from scipy import sparse
+
+    cells = np.asarray(cells, dtype=np.int64).ravel()
+    if not hasattr(mesh, "blocks"):  # a view of whole cells
+        rows = mesh.incidence[cells]
+        rows.sum_duplicates()
+        return rows
+    block = np.searchsorted(mesh.block_offsets, cells, side="right") - 1
+    width = np.array([b.connectivity.shape[1] for b in mesh.blocks], dtype=np.int64)[block]
+    indptr = np.zeros(cells.size + 1, dtype=np.int64)
+    np.cumsum(width, out=indptr[1:])
+    indices = np.empty(int(indptr[-1]), dtype=np.int64)
+    for b, item in enumerate(mesh.blocks):
+        rows = np.flatnonzero(block == b)
+        if not rows.size:
+            continue
+        corners = item.connectivity[cells[rows] - mesh.block_offsets[b]]
+        k = corners.shape[1]
+        indices[(indptr[rows][:, None] + np.arange(k)).ravel()] = corners.ravel()
+    m = sparse.csr_matrix((np.ones(indices.size), indices, indptr), shape=(cells.size, mesh.n_points))
+    m.sum_duplicates()
+    m.data[:] = 1.0
+    return m

@@ -27,9 +27,10 @@ from ..errors import UnsupportedMeshError
 from ._centroids import cell_centroids_of, mesh_geometry, piece_measures, whole_cell_sizes, zero_measures
 from ._conversions import corner_sums, linear_point_values
 from ._faces import cell_adjacency, face_pairs, face_topology, grid_face_numbers, grouped_faces, unique_edges
-from ._grouping import index_dtype, unique_ints
+from ._grouping import unique_ints
 from ._regular_grid import RegularGrid, find_regular_grid
 from .cells import CELL_DIMENSION, LINEAR_CORNERS, JoinedPieces
+from .corners import incidence_matrix
 
 __all__ = ["Mesh", "CellBlock", "RegularGrid"]
 
@@ -399,24 +400,9 @@ class Mesh:
     # --------------------------------------------------------------- topology
     @cached_property
     def incidence(self):
-        """Sparse (n_cells, n_points) matrix, 1 where a point is a corner of a cell."""
-        from scipy import sparse
-
-        nnz = sum(b.connectivity.size for b in self.blocks)
-        dtype = index_dtype(max(nnz, self.n_points) + 1)
-        indptr = np.empty(self.n_cells + 1, dtype=dtype)
-        indices = np.empty(nnz, dtype=dtype)
-        indptr[0] = last = 0
-        for block, start in zip(self.blocks, self.block_offsets[:-1]):
-            n, k = block.connectivity.shape
-            indptr[start + 1:start + n + 1] = np.arange(last + k, last + k * n + 1, k, dtype=dtype)
-            indices[last:last + n * k] = block.connectivity.ravel()
-            last += n * k
-        m = sparse.csr_matrix((np.ones(nnz), indices, indptr), shape=(self.n_cells, self.n_points))
-        if any(b.cell_type == "polygon" for b in self.blocks) or self._flat_cells:
-            m.sum_duplicates()
-            m.data[:] = 1.0  # a corner repeated in a degenerate cell counts once
-        return m
+        """Sparse (n_cells, n_points) matrix, 1 where a point is a corner of a cell
+        (:func:`.corners.incidence_matrix`)."""
+        return incidence_matrix(self)
 
     @cached_property
     def _face_topology(self) -> dict:
@@ -588,5 +574,5 @@ class Mesh:
         return out.reshape((self.n_points,) + v.shape[1:])
 
     @cached_property
-    def _incidence_t(self):
-        return self.incidence.T.tocsr()
+    def _incidence_t(self):  # made without keeping :attr:`incidence` (a cell field's runs need this one only)
+        return incidence_matrix(self).T.tocsr()
