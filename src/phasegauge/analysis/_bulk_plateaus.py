@@ -46,6 +46,12 @@ def bulk_plateaus(c_point: np.ndarray, level: float, mesh=None) -> tuple[float, 
         is kept all the same where half its side lies within 0.05 of it, it
         lies more than three spreads off the ideal and moved at most three
         spreads (a Cahn-Hilliard matrix at 0.03 +- 0.005 while coarsening).
+        A side whose values all stay more than ``PLATEAU_TOLERANCE`` short of
+        its ideal keeps its bulk where half the side lies within 0.05 of it
+        and a fifth (by volume, given the mesh) within 0.01: a plateau's
+        bulk never lies beyond its side's own values, however wide its
+        spread; the crest of a profile or its tail cut off by the domain
+        (less of the side near it) still reads the ideal.
         ``(0.0, 1.0)`` when both lie within ``PLATEAU_TOLERANCE`` (1e-3) of
         0 and 1.
     tail : float
@@ -90,10 +96,17 @@ def bulk_plateaus(c_point: np.ndarray, level: float, mesh=None) -> tuple[float, 
         # even where it moved more (a Cahn-Hilliard matrix at 0.03 +- 0.005 while coarsening)
         noisy = (near.size >= 0.5 * side.size and abs(g - ideal) > max(3.0 * spread, PLATEAU_TOLERANCE)
                  and abs(g - extreme) <= max(0.01, 3.0 * spread))
+        # a plateau (half its side within 0.05 of g, a fifth within PLATEAU_BAND) whose side's values all stay
+        # more than PLATEAU_TOLERANCE short of the ideal never reads the ideal: its bulk lies within its own
+        # values (a matrix at 0.02, whose spread the halo of a vanishing drop widened past a third of its
+        # distance from 0, is not at 0 when no value of it lies below 0.0135); the crest of a profile, or the
+        # tail of one cut off by the domain, holds too little of its side near g and still reads the ideal
+        short = (float(side.min()) - ideal if below else ideal - float(side.max())) > PLATEAU_TOLERANCE
+        unreached = short and near.size >= 0.5 * side.size and _holds(side, g, mesh, mask, finite)
         # beyond 0.25 of the ideal, a plateau must hold a fifth of its side (a bulk, as a partially
         # miscible pair's phases sit at 0.3 and 0.7; not the top of a drop that never reached its bulk)
-        held = abs(g - ideal) <= 0.25 or (strict and _holds(side, g, mesh, mask, finite))
-        if not (held and (strict or noisy)):
+        held = abs(g - ideal) <= 0.25 or unreached or (strict and _holds(side, g, mesh, mask, finite))
+        if not (held and (strict or noisy or unreached)):
             # no plateau on this side (the inside of a thin filament, a profile still
             # approaching its ideal value): the ideal value
             plateaus.append(ideal)
