@@ -57,7 +57,7 @@ def test_halves_that_separate_break_up_with_exact_closure(kind):
     assert events["kind"].tolist() == ["breakup"]
     event = events.iloc[0]
     assert event["step"] == 3 and event["time"] == 3.0
-    assert event["before"] == "0" and event["after"] == "0 1"
+    assert event["before"] == "[0]" and event["after"] == "[0 1]"
     assert event["closure_error"] == pytest.approx(0.0, abs=1e-12)
     assert droplets.groupby("step").size().tolist() == [1, 1, 1, 2, 2, 2]
 
@@ -80,7 +80,7 @@ def test_dumbbell_neck_thins_and_breaks():
     lost = np.sum(mesh.cell_measures[necks[2]])
     assert event["volume_before"] - event["volume_after"] == pytest.approx(lost, rel=1e-12)
     # the larger fragment keeps the track (Silver & Wang 1997): equal halves -> ties, either, but one is 0
-    assert "0" in event["after"].split()
+    assert "0" in event["after"].strip("[]").split()
 
 
 @pytest.mark.parametrize("use_velocity", [False, True])
@@ -101,7 +101,7 @@ def test_two_discs_approach_and_merge(use_velocity):
     droplets, events = track_droplets(series(mesh, shapes, velocity=velocity if use_velocity else None))
     assert events["kind"].tolist() == ["coalescence"]
     event = events.iloc[0]
-    assert event["step"] == 5 and event["before"] == "0 1" and event["after"] in ("0", "1")
+    assert event["step"] == 5 and event["before"] == "[0 1]" and event["after"] in ("[0]", "[1]")
     assert event["closure_error"] == pytest.approx(0.0, abs=1e-12)
     assert droplets.groupby("step").size().tolist() == [2] * 5 + [1] * 3
 
@@ -115,7 +115,7 @@ def test_largest_parent_keeps_its_track():
     small_near = disc(X, (0.33, 0.5), 0.08)  # reaches into it
     droplets, events = track_droplets(series(mesh, [big | small_far, big | small_near]))
     assert droplets[droplets["step"] == 0].sort_values("centroid_x")["track"].tolist() == [0, 1]
-    assert events.iloc[0]["kind"] == "coalescence" and events.iloc[0]["after"] == "1"
+    assert events.iloc[0]["kind"] == "coalescence" and events.iloc[0]["after"] == "[1]"
 
 
 @pytest.mark.parametrize("kind", ["quad", "triangle", "hexahedron", "tetra"])
@@ -209,7 +209,7 @@ def test_complex_event():
     b1 = row & (X[:, 0] > 0.4) & (X[:, 0] < 0.8)
     _, events = track_droplets(series(mesh, [a0 | b0, a1 | b1]))
     assert events["kind"].tolist() == ["complex"]
-    assert events.iloc[0]["before"] == "0 1" and events.iloc[0]["after"] == "1 2"
+    assert events.iloc[0]["before"] == "[0 1]" and events.iloc[0]["after"] == "[1 2]"
 
 
 def test_tracker_is_incremental_and_returns_track_ids():
@@ -231,7 +231,7 @@ def test_empty_steps_and_first_step_events():
     empty = np.zeros(mesh.n_cells, dtype=bool)
     droplets, events = track_droplets(series(mesh, [empty, disc(X, (0.5, 0.5), 0.2), empty]))
     assert events["kind"].tolist() == ["appearance", "disappearance"]
-    assert events["after"].tolist() == ["0", ""] and events["before"].tolist() == ["", "0"]
+    assert events["after"].tolist() == ["[0]", "[]"] and events["before"].tolist() == ["[]", "[0]"]
     droplets, events = track_droplets([])
     assert len(droplets) == 0 and list(events.columns) == list(EVENT_COLUMNS)
 

@@ -54,7 +54,14 @@ EVENT_KINDS = ("breakup", "coalescence", "complex", "appearance", "disappearance
 
 
 def _track_string(tracks) -> str:
-    return " ".join(str(int(t)) for t in sorted(tracks))
+    """An event side's track ids as text: space-separated in brackets, ``[0 1]``, ``[2]``, ``[]`` for none
+    (never a bare number, so a CSV reader takes the column as text whatever ids a run has)."""
+    return "[" + " ".join(str(int(t)) for t in sorted(tracks)) + "]"
+
+
+def _track_tokens(text) -> list:
+    """The track ids of an event side's text (:func:`_track_string`) as strings."""
+    return str(text).replace("[", " ").replace("]", " ").split()
 
 
 class DropletTracker:
@@ -401,7 +408,7 @@ class DropletTracker:
             table = pd.DataFrame({"group": events, "kind": kind[events]}).set_index("group")
             table = table.join(before).join(after)
             for column in ("before", "after"):  # a side with no droplets joins as NaN
-                table[column] = table[column].astype(object).where(table[column].notna(), "")
+                table[column] = table[column].where(table[column].notna(), _track_string(())).astype(str)
             table["volume_before"] = table["volume_before"].fillna(0.0)
             table["volume_after"] = table["volume_after"].fillna(0.0)
             with np.errstate(invalid="ignore", divide="ignore"):
@@ -427,7 +434,8 @@ class DropletTracker:
             One row per event, columns :data:`EVENT_COLUMNS`: ``kind`` is
             one of ``breakup, coalescence, complex, appearance,
             disappearance``; ``before`` and ``after`` list the track ids
-            (space-separated); ``volume_before`` and ``volume_after`` sum the
+            (text, space-separated in brackets: ``[0 1]``, ``[]`` for none);
+            ``volume_before`` and ``volume_after`` sum the
             droplets' volumes; ``closure_error`` is
             ``(volume_after - volume_before) / volume_before`` (NaN for an
             appearance, -1 for a disappearance).
@@ -463,16 +471,16 @@ def _drop_remerges(droplets: pd.DataFrame, events: pd.DataFrame, within: int):
     for i in np.flatnonzero(events["kind"].to_numpy() == "breakup"):  # loop over events, not cells
         if drop[i]:
             continue
-        parent = events.at[i, "before"]
-        fragments = set(events.at[i, "after"].split())
+        parent, = _track_tokens(events.at[i, "before"])
+        fragments = set(_track_tokens(events.at[i, "after"]))
         start = events.at[i, "_order"]
         later = events.index[(events["_order"] > start) & (events["_order"] <= start + within) & ~drop]
         for j in later:
-            involved = set(events.at[j, "before"].split()) | set(events.at[j, "after"].split())
+            involved = set(_track_tokens(events.at[j, "before"])) | set(_track_tokens(events.at[j, "after"]))
             if not involved & fragments:
                 continue
-            if events.at[j, "kind"] == "coalescence" and set(events.at[j, "before"].split()) == fragments:
-                merged = events.at[j, "after"]
+            if events.at[j, "kind"] == "coalescence" and set(_track_tokens(events.at[j, "before"])) == fragments:
+                merged, = _track_tokens(events.at[j, "after"])
                 renamed = {int(t) for t in fragments | {merged}} - {int(parent)}
                 mask = droplets["track"].isin(renamed) & (droplets["_order"] >= start)
                 droplets.loc[mask, "track"] = int(parent)
@@ -480,7 +488,7 @@ def _drop_remerges(droplets: pd.DataFrame, events: pd.DataFrame, within: int):
                 names = {str(t) for t in renamed}
                 for k in events.index[events["_order"] > events.at[j, "_order"]]:
                     for column in ("before", "after"):
-                        ids = [parent if t in names else t for t in events.at[k, column].split()]
+                        ids = [parent if t in names else t for t in _track_tokens(events.at[k, column])]
                         events.at[k, column] = _track_string(set(int(t) for t in ids))
             break  # the first later event touching the fragments decides
     return droplets, events[~drop]

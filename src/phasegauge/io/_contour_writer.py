@@ -3,7 +3,8 @@
 A contour (:class:`phasegauge.model.contour.Contour`) becomes a VTK
 unstructured grid of line (2D) or triangle (3D) cells through meshio: ``.vtu``
 (XML) or ``.vtk`` (legacy). Each element carries two cell arrays: ``cell``, the
-mesh cell it lies in, and ``size``, its length or area. Both formats also carry the
+mesh cell it lies in, numbered as the input file numbers its cells (the whole cell of
+a piece, where a reader split cells), and ``size``, its length or area. Both formats also carry the
 step's time and number as one-value field-data arrays ``TimeValue`` and ``step``
 (the names VTK's own writers and readers use for a file's time; in a legacy file a
 dataset-level ``FIELD FieldData`` block, as VTK writes it), so a folder of them reads
@@ -58,7 +59,8 @@ def _format_of(path: Path) -> str:
     return CONTOUR_SUFFIXES[suffix]
 
 
-def write_contour(contour, path, *, time: float | None = None, step: int | None = None) -> Path:
+def write_contour(contour, path, *, time: float | None = None, step: int | None = None,
+                  cell_parents=None) -> Path:
     """Write a contour as a VTK file, atomically.
 
     Parameters
@@ -71,6 +73,10 @@ def write_contour(contour, path, *, time: float | None = None, step: int | None 
         Time of the step, kept as the one-value field-data array ``TimeValue``.
     step : int, optional
         Number of the step, kept as the one-value field-data array ``step``.
+    cell_parents : ndarray of shape (n_cells,), int, optional
+        :attr:`Mesh.cell_parents` of the mesh the contour was found on, where a reader split the file's
+        cells (polyhedra, mixed meshes): ``contour.cells`` number the pieces, and the ``cell`` array is
+        written as the file's cell of each piece. None: ``contour.cells`` are the file's cells.
 
     Returns
     -------
@@ -99,10 +105,13 @@ def write_contour(contour, path, *, time: float | None = None, step: int | None 
                           fix="create the folder first")
     cell_type = "line" if contour.dimension == 2 else "triangle"
     elements = np.asarray(contour.elements, dtype=np.int64)
+    cells = np.asarray(contour.cells, dtype=np.int64)
+    if cell_parents is not None:  # the pieces a reader split a cell into name the file's cell
+        cells = np.asarray(cell_parents, dtype=np.int64)[cells]
     mesh = meshio.Mesh(
         np.asarray(contour.points, dtype=np.float64),
         [(cell_type, elements)],
-        cell_data={"cell": [np.asarray(contour.cells, dtype=np.int64)],
+        cell_data={"cell": [cells],
                    "size": [np.asarray(contour.element_sizes, dtype=np.float64)]},
     )
     # meshio creates the file, so it gets mode 0666 less the umask like any new file

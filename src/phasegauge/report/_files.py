@@ -123,9 +123,10 @@ def _json_default(obj):
 
 
 def atomic_write_csv(path, frame) -> None:
-    """Write a DataFrame as CSV (no index, full float precision)."""
+    """Write a DataFrame as CSV (no index): floats as their shortest round-trip text (pandas' default,
+    Python's ``repr``), so ``pandas.read_csv`` reads back the same values and dtypes."""
     buffer = io.StringIO()
-    frame.to_csv(buffer, index=False, float_format="%.10g")
+    frame.to_csv(buffer, index=False)
     atomic_write_text(path, buffer.getvalue())
 
 

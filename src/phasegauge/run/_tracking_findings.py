@@ -74,10 +74,11 @@ def _in_events(events) -> set:
 
 
 def _track_ids(text) -> list:
-    """The track ids of an event's ``before`` or ``after`` (space-separated; empty or NaN: none; a single
-    id read back from CSV as a float, ``2.0``, is id 2)."""
+    """The track ids of an event's ``before`` or ``after`` (space-separated in brackets, ``[0 1]``; also
+    without them, as older tables wrote them; empty or NaN: none; a single id read back from CSV as a
+    float, ``2.0``, is id 2)."""
     ids = []
-    for token in str(text).split():
+    for token in str(text).replace("[", " ").replace("]", " ").split():
         try:
             value = float(token)
         except ValueError:

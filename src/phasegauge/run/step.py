@@ -346,7 +346,7 @@ def _phase_analyses(step, mesh, ind, options, result, m: dict, velocity: tuple, 
             from ..io import write_contour
 
             write_contour(contour, os.path.join(contour_dir, f"interface_{step.index:06d}.vtu"),
-                          time=step.time, step=step.index)
+                          time=step.time, step=step.index, cell_parents=mesh.cell_parents)
     if "droplets" in options.analyses:
         found = _label_droplets(mesh, ind, options, u_cell, contour, plateaus) if labels is None else labels.result()
         table = found.table
