@@ -12,7 +12,7 @@ import numpy as np
 from ._files import atomic_write_csv, atomic_write_json, atomic_write_text, mark_complete
 from ._html import Page
 from ._drawing import save_figures
-from ._measure_report import CAUTION, kind_words, manifest
+from ._measure_report import CAUTION, kind_words, manifest, verdict_lines
 
 __all__ = ["write_compare_report", "compare_figures"]
 
@@ -100,6 +100,10 @@ def write_compare_report(out, result, *, specs, overlays, inputs: list, version:
     findings = _compare_findings(result)
     page.items(findings or ["no flags in either run and no failed reference check"],
                css="flag" if findings else "ok")
+    unchecked = [f"{label}: {line}" for label, run in zip(result.labels, (result.first, result.second))
+                 for line in verdict_lines(getattr(run, "checks", None) or [], True)]
+    if unchecked:  # each run's standing checks not made, and why
+        page.items(unchecked, css="note")
     page.heading("Key figures")
     page.key_values(_compare_key_figures(result))
     page.heading("Paired steps")
@@ -150,6 +154,8 @@ def write_compare_report(out, result, *, specs, overlays, inputs: list, version:
                                                 zip(result.labels, (result.first, result.second))},
                               "warnings": {label: list(run.flags) for label, run in
                                            zip(result.labels, (result.first, result.second))},
+                              "checks": {label: list(getattr(run, "checks", None) or []) for label, run in
+                                         zip(result.labels, (result.first, result.second))},
                               "interface_kind": {label: _kind(run)[0] for label, run in
                                                  zip(result.labels, (result.first, result.second))},
                               "time_origin": dict(time_origins or {})},
