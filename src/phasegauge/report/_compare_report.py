@@ -10,6 +10,7 @@ import time
 import numpy as np
 
 from ._files import atomic_write_csv, atomic_write_json, atomic_write_text, mark_complete
+from ._canvas import time_words
 from ._html import Page
 from ._drawing import save_figures
 from ._measure_report import CAUTION, kind_words, manifest, verdict_lines
@@ -17,34 +18,37 @@ from ._measure_report import CAUTION, kind_words, manifest, verdict_lines
 __all__ = ["write_compare_report", "compare_figures"]
 
 
-def compare_figures(result, *, overlays, level: float) -> list:
+def compare_figures(result, *, overlays, level: float, time_origin: str | None = None) -> list:
     """(file stem, caption, Figure) of a comparison: overlays, metric curves, differences, shapes.
 
     ``overlays`` are the run's overlay records (``time``, ``mismatch``, ``extent``, ``segments_a``,
     ``segments_b``, ``axis_names``; see :func:`phasegauge.run._compare_steps.overlay_arrays`).
+    ``time_origin`` is the first run's, whose times the pairs carry (``index``: plotted against the
+    step number).
     """
     from . import _plots_compare as plots
 
     labels = result.labels
     figures = []
     for k, o in enumerate(overlays):
-        t = o["time"]
-        figures.append((f"overlay_{k}", f"Both interfaces at t = {t:g}",
+        when = time_words(o["time"], time_origin)
+        figures.append((f"overlay_{k}", f"Both interfaces at {when}",
                         plots.plot_interface_overlay(o["mismatch"], o["extent"], o["segments_a"], o["segments_b"],
                                                      labels=labels, axis_names=o["axis_names"], level=level,
-                                                     title=f"t = {t:g}")))
+                                                     title=when)))
     comparison = result.comparison
     if comparison is not None and len(comparison) > 1:
         wanted = [m for m in ("phase_volume", "interface_size", "interface_width", "droplet_count",
                               "mixing_index") if f"{m}_a" in comparison]
         if wanted:
             figures.append(("metric_curves", "Metrics of both runs over time",
-                            plots.plot_metric_curves(comparison, metrics=wanted, labels=labels)))
+                            plots.plot_metric_curves(comparison, metrics=wanted, labels=labels,
+                                                     time_origin=time_origin)))
             figures.append(("metric_differences", "Relative differences of the metrics over time",
-                            plots.plot_metric_differences(comparison, metrics=wanted)))
+                            plots.plot_metric_differences(comparison, metrics=wanted, time_origin=time_origin)))
         if "mismatch_volume" in comparison:
             figures.append(("shape_history", "Shape comparison over time",
-                            plots.plot_shape_history(comparison)))
+                            plots.plot_shape_history(comparison, time_origin=time_origin)))
     return figures
 
 
@@ -91,7 +95,9 @@ def write_compare_report(out, result, *, specs, overlays, inputs: list, version:
         name = "steps_{}.csv".format(re.sub(r"[^A-Za-z0-9_.-]+", "_", label))  # a label of any text: one file
         atomic_write_csv(os.path.join(out, name), res.steps)
         written.append(name)
-    pngs = save_figures(out, compare_figures(result, overlays=overlays, level=level), written)
+    first_origin = (time_origins or {}).get(result.labels[0])
+    pngs = save_figures(out, compare_figures(result, overlays=overlays, level=level, time_origin=first_origin),
+                        written)
     a, b = result.labels
     page = Page("phasegauge comparison report",
                 f"{a}: {os.path.abspath(specs[0].path)} ('{specs[0].field}')  ·  "

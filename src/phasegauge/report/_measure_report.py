@@ -116,7 +116,8 @@ def write_measure_report(out, result, *, series: dict, inputs: list, snapshots: 
         written.append("diffusion_audit.json")
     execution = dict(execution)
     plot_format = execution.pop("plot_format", "png")
-    pngs = save_figure_makers(out, _plots.measure_figure_makers(result, snapshots), written, plot_format)
+    makers = _plots.measure_figure_makers(result, snapshots, time_origin=series.get("time_origin"))
+    pngs = save_figure_makers(out, makers, written, plot_format)
     has_contours = os.path.isdir(os.path.join(out, "contours"))
     page = _page(result, series, pngs, execution, version, written=list(written), contours=has_contours)
     atomic_write_text(os.path.join(out, "report.html"), page.render())
@@ -173,7 +174,7 @@ def _options_dict(options) -> dict:
     return {k: (list(v) if isinstance(v, tuple) else v) for k, v in dataclasses.asdict(options).items()}
 
 
-def _key_figures(result) -> list:
+def _key_figures(result, time_origin: str | None = None) -> list:
     steps = result.steps
     pairs = [("steps analysed", len(steps))]
 
@@ -183,8 +184,9 @@ def _key_figures(result) -> list:
             if np.isfinite(values).any():
                 pairs.append((label, float(how(values))))
 
-    add("time, first", "time", lambda v: v[0])
-    add("time, last", "time", lambda v: v[-1])
+    numbered = time_origin == "index"  # the steps store no times: a step's time is its number
+    add("step number, first" if numbered else "time, first", "time", lambda v: v[0])
+    add("step number, last" if numbered else "time, last", "time", lambda v: v[-1])
     add("phase volume, first step", "phase_volume", lambda v: v[0])
     add("largest |phase-volume drift| (relative)", "phase_volume_drift", lambda v: np.nanmax(np.abs(v)))
     add("indicator minimum", "c_min", np.nanmin)
@@ -219,8 +221,8 @@ def _key_figures(result) -> list:
     # a diffusivity not distinguishable from 0, or a line that explains little, is no key figure
     fitted = audit.get("fit_from_time")
     if audit.get("n_fit") and fitted is not None and np.isfinite(float(fitted)):
-        pairs.append(("diffusion audit fitted", f"{audit['n_fit']} of {audit.get('n_steps')} steps, from t = "
-                                                f"{float(fitted):.6g}"))
+        pairs.append(("diffusion audit fitted", f"{audit['n_fit']} of {audit.get('n_steps')} steps, from "
+                                                f"{'step' if numbered else 't ='} {float(fitted):.6g}"))
     unit = "length²/step" if audit.get("note") or "per step index" in str(audit.get("verdict")) else "length²/time"
     if audit.get("significant") and (audit.get("widening") or fits):
         for key, label in (("D_num", f"numerical diffusivity ({unit})"),
@@ -249,7 +251,7 @@ def _page(result, series, pngs, execution, version, *, written=(), contours=Fals
     if said:  # what was not checked, and why
         page.items(said, css="note")
     page.heading("Key figures")
-    page.key_values(_key_figures(result))
+    page.key_values(_key_figures(result, series.get("time_origin")))
     if pngs:
         page.heading("Plots")
         page.figures(pngs)
