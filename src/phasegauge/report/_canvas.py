@@ -40,6 +40,10 @@ _MESH_UNIT_COLUMNS = frozenset({
 })
 
 
+#: table columns that are diffusivities: length squared per unit time
+_DIFFUSIVITY_COLUMNS = frozenset({"D_num", "D_num_stderr"})
+
+
 def in_mesh_units(quantity: str) -> str:
     """``quantity`` as an axis label in mesh length units: ``'x'`` -> ``'x (mesh units)'``."""
     return f"{quantity} (mesh units)"
@@ -49,7 +53,8 @@ def with_units(label: str, column: str, time_origin: str | None = None) -> str:
     """The axis label of table column ``column`` (shown as ``label``), with its unit where it has one.
 
     ``time`` gives :func:`time_label` of ``time_origin`` (``step`` where the series stores no times);
-    lengths, areas and volumes get "(mesh units)"; other columns (counts, fractions, indices) are
+    lengths, areas and volumes get "(mesh units)"; diffusivities (``D_num``) "(mesh units²/run's time
+    units)", per step where the series stores no times; other columns (counts, fractions, indices) are
     dimensionless and keep ``label``.
     """
     name = str(column).rpartition(":")[2]
@@ -57,6 +62,9 @@ def with_units(label: str, column: str, time_origin: str | None = None) -> str:
         return time_label(time_origin)
     if name in _MESH_UNIT_COLUMNS or name.startswith("centroid_"):
         return in_mesh_units(label)
+    if name in _DIFFUSIVITY_COLUMNS:
+        per = "step" if time_origin == "index" else "run's time units"
+        return f"{label} (mesh units²/{per})"
     return label
 
 
