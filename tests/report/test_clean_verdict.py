@@ -114,3 +114,22 @@ def test_compare_names_each_runs_checks_not_made(tmp_path):
     assert "one: not checked: interface widening" in text and "two: not checked: interface widening" in text
     record = json.load(open(tmp_path / "c" / "manifest.json"))
     assert not next(c for c in record["checks"]["one"] if c["check"] == "interface_widening")["made"]
+
+
+def test_each_reason_a_check_was_not_made():
+    import pandas as pd
+
+    from phasegauge.report._measure_report import verdict_lines
+    from phasegauge.run._checks import standing_checks
+    from phasegauge.run.options import MeasureOptions
+
+    one = pd.DataFrame({"step": [0], "time": [0.0], "phase_volume_drift": [0.0], "overshoot_volume": [0.0]})
+    checks = {c["check"]: c for c in standing_checks(one, {}, MeasureOptions(field="c"))}
+    assert checks["phase_volume_drift"]["not_made_because"] == "one step only: no change to judge"
+    assert checks["indicator_bounds"]["made"] and checks["droplet_resolution"]["made"]
+    level_set = {c["check"]: c for c in standing_checks(one, {"interface_kind": "level set"},
+                                                        MeasureOptions(field="c", level_set=True))}
+    assert level_set["interface_widening"]["not_made_because"] == "a level set has no width of its own"
+    said = verdict_lines(list(level_set.values()), flagged=True)
+    assert said == ["not checked: interface widening, interface resolution (a level set has no width of its own); "
+                    "phase-volume conservation (one step only: no change to judge)"]
