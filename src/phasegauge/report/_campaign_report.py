@@ -4,6 +4,7 @@ from __future__ import annotations
 
 import os
 import time
+from types import MappingProxyType
 
 import numpy as np
 
@@ -18,8 +19,8 @@ _FIGURES = (("mixing_length", "mixing length"), ("mixing_index", "final mixing i
             ("droplet_count", "final droplet count"), ("D_num", "D_num"))
 
 #: the y label of each panel where it is more than the title (with_units adds the unit where there is one)
-_Y_LABELS = {"phase_volume_drift": "final phase-volume drift (relative)",
-             "D_num": "numerical diffusivity D_num"}
+_Y_LABELS = MappingProxyType({"phase_volume_drift": "final phase-volume drift (relative)",
+                              "D_num": "numerical diffusivity D_num"})
 
 
 def plot_campaign(table, *, parameter: str = "parameter", unit: str = "", sections: bool = False):

@@ -5,6 +5,7 @@ from __future__ import annotations
 import os
 import platform
 import time
+from types import MappingProxyType
 
 import numpy as np
 
@@ -28,9 +29,10 @@ def manifest(command: str, *, version: str, inputs: list, fields: dict, outputs:
 
 
 #: what the report calls each standing check that was not made
-CHECK_NAMES = {"interface_widening": "interface widening", "phase_volume_drift": "phase-volume conservation",
-               "indicator_bounds": "indicator bounds", "interface_resolution": "interface resolution",
-               "droplet_resolution": "droplet resolution"}
+CHECK_NAMES = MappingProxyType({"interface_widening": "interface widening",
+                                "phase_volume_drift": "phase-volume conservation",
+                                "indicator_bounds": "indicator bounds", "interface_resolution": "interface resolution",
+                                "droplet_resolution": "droplet resolution"})
 
 
 def verdict_lines(checks: list, flagged: bool) -> list:
