@@ -296,6 +296,10 @@ def _summary(result, out, quiet):
         click.echo(f"  {line}")
     for flag in result.flags:
         click.echo(f"  flag: {flag}")
+    from .report._measure_report import verdict_lines
+
+    for line in verdict_lines(getattr(result, "checks", None) or [], bool(result.flags)):
+        click.echo(f"  {line}")
 
 
 @main.command()

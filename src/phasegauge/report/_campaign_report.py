@@ -4,10 +4,11 @@ from __future__ import annotations
 
 import os
 import time
+from types import MappingProxyType
 
 import numpy as np
 
-from ._canvas import new_figure
+from ._canvas import new_figure, with_units
 from ._files import atomic_save_figure, atomic_write_csv, atomic_write_json, mark_complete
 from ._measure_report import manifest as run_manifest
 
@@ -17,14 +18,20 @@ _FIGURES = (("mixing_length", "mixing length"), ("mixing_index", "final mixing i
             ("phase_volume_drift", "final phase-volume drift"), ("interface_width", "final interface width"),
             ("droplet_count", "final droplet count"), ("D_num", "D_num"))
 
+#: the y label of each panel where it is more than the title (with_units adds the unit where there is one)
+_Y_LABELS = MappingProxyType({"phase_volume_drift": "final phase-volume drift (relative)",
+                              "D_num": "numerical diffusivity D_num"})
+
 
 def plot_campaign(table, *, parameter: str = "parameter", unit: str = "", sections: bool = False):
     """Each summary figure of the runs against the parameter, one panel per figure that has values.
 
     Every panel spans every run's parameter. The drift panel draws, for a run with open boundaries,
     the drift the boundary flow leaves unexplained (``phase_volume_drift_closed``), and its title says
-    so. ``D_num`` carries its standard error as an error bar, hollow where the run's audit finds it
-    not distinguishable from 0 (``D_num_significant`` False). With ``sections`` (the runs measured
+    so. Each y label carries its column's unit where it has one (:func:`._canvas.with_units`: lengths in
+    mesh units, ``D_num`` in mesh units²/run's time units). ``D_num`` carries its standard error as an
+    error bar, hollow where the run's audit finds it not distinguishable from 0 (``D_num_significant``
+    False). With ``sections`` (the runs measured
     cross-sections), a run whose mixing length is NaN did not mix within the domain: a hollow
     triangle at the top of the mixing-length panel, labelled "not reached".
 
@@ -55,7 +62,7 @@ def plot_campaign(table, *, parameter: str = "parameter", unit: str = "", sectio
         ax.set_xlim(*_span(x))
         ax.set_xlabel(xlabel)
         ax.set_title(_drift_title(table) if column == "phase_volume_drift" else label)
-        ax.set_ylabel(label)
+        ax.set_ylabel(with_units(_Y_LABELS.get(column, label), column))
     for ax in axes[len(shown):]:
         ax.set_visible(False)
     return figure

@@ -11,10 +11,26 @@ series gives (file field data, XDMF or listing), or the step number when it give
 
 from __future__ import annotations
 
-__all__ = ["new_figure", "legend_outside", "lay_out_column", "sparse_ticks", "TIME_LABEL", "in_mesh_units", "with_units"]
+__all__ = ["new_figure", "legend_outside", "lay_out_column", "sparse_ticks", "TIME_LABEL", "STEP_LABEL", "time_label",
+           "time_words", "in_mesh_units", "with_units"]
 
 #: the x label of every plot over time
 TIME_LABEL = "time (run's time units)"
+
+#: the x label of a plot over the steps of a series that stores no times (its times are step numbers)
+STEP_LABEL = "step"
+
+
+def time_label(time_origin: str | None = None) -> str:
+    """The label of a time axis: :data:`STEP_LABEL` for a series whose time origin is ``index`` (it
+    stores no times, so its times are the step numbers), else :data:`TIME_LABEL`."""
+    return STEP_LABEL if time_origin == "index" else TIME_LABEL
+
+
+def time_words(value: float, time_origin: str | None = None) -> str:
+    """A legend's words for one time: ``t = 0.25``, or ``step 3`` where the series stores no times."""
+    return f"step {value:g}" if time_origin == "index" else f"t = {value:g}"
+
 
 # table columns measured in mesh length units (or their square / cube)
 _MESH_UNIT_COLUMNS = frozenset({
@@ -24,22 +40,31 @@ _MESH_UNIT_COLUMNS = frozenset({
 })
 
 
+#: table columns that are diffusivities: length squared per unit time
+_DIFFUSIVITY_COLUMNS = frozenset({"D_num", "D_num_stderr"})
+
+
 def in_mesh_units(quantity: str) -> str:
     """``quantity`` as an axis label in mesh length units: ``'x'`` -> ``'x (mesh units)'``."""
     return f"{quantity} (mesh units)"
 
 
-def with_units(label: str, column: str) -> str:
+def with_units(label: str, column: str, time_origin: str | None = None) -> str:
     """The axis label of table column ``column`` (shown as ``label``), with its unit where it has one.
 
-    ``time`` gives :data:`TIME_LABEL`; lengths, areas and volumes get "(mesh units)"; other columns
-    (counts, fractions, indices) are dimensionless and keep ``label``.
+    ``time`` gives :func:`time_label` of ``time_origin`` (``step`` where the series stores no times);
+    lengths, areas and volumes get "(mesh units)"; diffusivities (``D_num``) "(mesh units²/run's time
+    units)", per step where the series stores no times; other columns (counts, fractions, indices) are
+    dimensionless and keep ``label``.
     """
     name = str(column).rpartition(":")[2]
     if name == "time":
-        return TIME_LABEL
+        return time_label(time_origin)
     if name in _MESH_UNIT_COLUMNS or name.startswith("centroid_"):
         return in_mesh_units(label)
+    if name in _DIFFUSIVITY_COLUMNS:
+        per = "step" if time_origin == "index" else "run's time units"
+        return f"{label} (mesh units²/{per})"
     return label
 
 

@@ -10,41 +10,45 @@ import time
 import numpy as np
 
 from ._files import atomic_write_csv, atomic_write_json, atomic_write_text, mark_complete
+from ._canvas import time_words
 from ._html import Page
 from ._drawing import save_figures
-from ._measure_report import CAUTION, kind_words, manifest
+from ._measure_report import CAUTION, kind_words, manifest, verdict_lines
 
 __all__ = ["write_compare_report", "compare_figures"]
 
 
-def compare_figures(result, *, overlays, level: float) -> list:
+def compare_figures(result, *, overlays, level: float, time_origin: str | None = None) -> list:
     """(file stem, caption, Figure) of a comparison: overlays, metric curves, differences, shapes.
 
     ``overlays`` are the run's overlay records (``time``, ``mismatch``, ``extent``, ``segments_a``,
     ``segments_b``, ``axis_names``; see :func:`phasegauge.run._compare_steps.overlay_arrays`).
+    ``time_origin`` is the first run's, whose times the pairs carry (``index``: plotted against the
+    step number).
     """
     from . import _plots_compare as plots
 
     labels = result.labels
     figures = []
     for k, o in enumerate(overlays):
-        t = o["time"]
-        figures.append((f"overlay_{k}", f"Both interfaces at t = {t:g}",
+        when = time_words(o["time"], time_origin)
+        figures.append((f"overlay_{k}", f"Both interfaces at {when}",
                         plots.plot_interface_overlay(o["mismatch"], o["extent"], o["segments_a"], o["segments_b"],
                                                      labels=labels, axis_names=o["axis_names"], level=level,
-                                                     title=f"t = {t:g}")))
+                                                     title=when)))
     comparison = result.comparison
     if comparison is not None and len(comparison) > 1:
         wanted = [m for m in ("phase_volume", "interface_size", "interface_width", "droplet_count",
                               "mixing_index") if f"{m}_a" in comparison]
         if wanted:
             figures.append(("metric_curves", "Metrics of both runs over time",
-                            plots.plot_metric_curves(comparison, metrics=wanted, labels=labels)))
+                            plots.plot_metric_curves(comparison, metrics=wanted, labels=labels,
+                                                     time_origin=time_origin)))
             figures.append(("metric_differences", "Relative differences of the metrics over time",
-                            plots.plot_metric_differences(comparison, metrics=wanted)))
+                            plots.plot_metric_differences(comparison, metrics=wanted, time_origin=time_origin)))
         if "mismatch_volume" in comparison:
             figures.append(("shape_history", "Shape comparison over time",
-                            plots.plot_shape_history(comparison)))
+                            plots.plot_shape_history(comparison, time_origin=time_origin)))
     return figures
 
 
@@ -91,7 +95,9 @@ def write_compare_report(out, result, *, specs, overlays, inputs: list, version:
         name = "steps_{}.csv".format(re.sub(r"[^A-Za-z0-9_.-]+", "_", label))  # a label of any text: one file
         atomic_write_csv(os.path.join(out, name), res.steps)
         written.append(name)
-    pngs = save_figures(out, compare_figures(result, overlays=overlays, level=level), written)
+    first_origin = (time_origins or {}).get(result.labels[0])
+    pngs = save_figures(out, compare_figures(result, overlays=overlays, level=level, time_origin=first_origin),
+                        written)
     a, b = result.labels
     page = Page("phasegauge comparison report",
                 f"{a}: {os.path.abspath(specs[0].path)} ('{specs[0].field}')  ·  "
@@ -100,6 +106,10 @@ def write_compare_report(out, result, *, specs, overlays, inputs: list, version:
     findings = _compare_findings(result)
     page.items(findings or ["no flags in either run and no failed reference check"],
                css="flag" if findings else "ok")
+    unchecked = [f"{label}: {line}" for label, run in zip(result.labels, (result.first, result.second))
+                 for line in verdict_lines(getattr(run, "checks", None) or [], True)]
+    if unchecked:  # each run's standing checks not made, and why
+        page.items(unchecked, css="note")
     page.heading("Key figures")
     page.key_values(_compare_key_figures(result))
     page.heading("Paired steps")
@@ -150,6 +160,8 @@ def write_compare_report(out, result, *, specs, overlays, inputs: list, version:
                                                 zip(result.labels, (result.first, result.second))},
                               "warnings": {label: list(run.flags) for label, run in
                                            zip(result.labels, (result.first, result.second))},
+                              "checks": {label: list(getattr(run, "checks", None) or []) for label, run in
+                                         zip(result.labels, (result.first, result.second))},
                               "interface_kind": {label: _kind(run)[0] for label, run in
                                                  zip(result.labels, (result.first, result.second))},
                               "time_origin": dict(time_origins or {})},

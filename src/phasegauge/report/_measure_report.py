@@ -5,6 +5,7 @@ from __future__ import annotations
 import os
 import platform
 import time
+from types import MappingProxyType
 
 import numpy as np
 
@@ -13,7 +14,7 @@ from ._drawing import save_figure_makers
 from ._files import atomic_write_csv, atomic_write_json, atomic_write_text, mark_complete
 from ._html import Page
 
-__all__ = ["write_measure_report", "measure_figures", "manifest"]
+__all__ = ["write_measure_report", "measure_figures", "manifest", "verdict_lines"]
 
 CAUTION = ("These figures describe the simulation, not the physical process. Design decisions rest on "
            "validated models, experiments and licensed engineering judgement under local codes.")
@@ -25,6 +26,35 @@ def manifest(command: str, *, version: str, inputs: list, fields: dict, outputs:
             "created": time.strftime("%Y-%m-%dT%H:%M:%S%z"), **fields, "inputs": list(inputs),
             "outputs": outputs, "timings": timings,
             "machine": {"python": platform.python_version(), "platform": platform.platform()}}
+
+
+#: what the report calls each standing check that was not made
+CHECK_NAMES = MappingProxyType({"interface_widening": "interface widening",
+                                "phase_volume_drift": "phase-volume conservation",
+                                "indicator_bounds": "indicator bounds", "interface_resolution": "interface resolution",
+                                "droplet_resolution": "droplet resolution"})
+
+
+def verdict_lines(checks: list, flagged: bool) -> list:
+    """What a run's findings say beside its flags: with no flag, the checks made and passed ("no flags:
+    ..."); then, with flags or not, the checks not made, each with its reason ("not checked: ...").
+    Empty for a run with flags and every check made."""
+    made = [c for c in checks if c["made"]]
+    lines = []
+    if not flagged:
+        words = [c["passed_as"] for c in made]
+        if "interface resolved" in words and "droplets resolved" in words:  # one phrase for the two
+            words.remove("droplets resolved")
+            words[words.index("interface resolved")] = "interface and droplets resolved"
+        lines.append("no flags: " + ", ".join(words) if words else
+                     "no flags from the analyses run; none of the standing checks was made")
+    reasons = {}
+    for c in checks:
+        if not c["made"]:
+            reasons.setdefault(c["not_made_because"], []).append(CHECK_NAMES.get(c["check"], c["check"]))
+    if reasons:
+        lines.append("not checked: " + "; ".join(f"{', '.join(names)} ({why})" for why, names in reasons.items()))
+    return lines
 
 
 def measure_figures(result, snapshots: dict | None = None) -> list:
@@ -88,7 +118,8 @@ def write_measure_report(out, result, *, series: dict, inputs: list, snapshots: 
         written.append("diffusion_audit.json")
     execution = dict(execution)
     plot_format = execution.pop("plot_format", "png")
-    pngs = save_figure_makers(out, _plots.measure_figure_makers(result, snapshots), written, plot_format)
+    makers = _plots.measure_figure_makers(result, snapshots, time_origin=series.get("time_origin"))
+    pngs = save_figure_makers(out, makers, written, plot_format)
     has_contours = os.path.isdir(os.path.join(out, "contours"))
     page = _page(result, series, pngs, execution, version, written=list(written), contours=has_contours)
     atomic_write_text(os.path.join(out, "report.html"), page.render())
@@ -101,6 +132,7 @@ def write_measure_report(out, result, *, series: dict, inputs: list, snapshots: 
     invocation = execution.pop("invocation", None)
     fields = {"invocation": invocation, "series": dict(series), "options": options, "execution": execution,
               "skipped_steps": result.skipped, "warnings": list(step_warnings), "flags": result.flags,
+              "checks": list(getattr(result, "checks", None) or []),
               "interface_kind": (result.audit or {}).get("interface_kind")}
     timings = {"total_seconds": round(time.time() - started, 3), "report_seconds": round(time.time() - t0, 3),
                **step_timings}
@@ -144,7 +176,7 @@ def _options_dict(options) -> dict:
     return {k: (list(v) if isinstance(v, tuple) else v) for k, v in dataclasses.asdict(options).items()}
 
 
-def _key_figures(result) -> list:
+def _key_figures(result, time_origin: str | None = None) -> list:
     steps = result.steps
     pairs = [("steps analysed", len(steps))]
 
@@ -154,8 +186,9 @@ def _key_figures(result) -> list:
             if np.isfinite(values).any():
                 pairs.append((label, float(how(values))))
 
-    add("time, first", "time", lambda v: v[0])
-    add("time, last", "time", lambda v: v[-1])
+    numbered = time_origin == "index"  # the steps store no times: a step's time is its number
+    add("step number, first" if numbered else "time, first", "time", lambda v: v[0])
+    add("step number, last" if numbered else "time, last", "time", lambda v: v[-1])
     add("phase volume, first step", "phase_volume", lambda v: v[0])
     add("largest |phase-volume drift| (relative)", "phase_volume_drift", lambda v: np.nanmax(np.abs(v)))
     add("indicator minimum", "c_min", np.nanmin)
@@ -190,8 +223,8 @@ def _key_figures(result) -> list:
     # a diffusivity not distinguishable from 0, or a line that explains little, is no key figure
     fitted = audit.get("fit_from_time")
     if audit.get("n_fit") and fitted is not None and np.isfinite(float(fitted)):
-        pairs.append(("diffusion audit fitted", f"{audit['n_fit']} of {audit.get('n_steps')} steps, from t = "
-                                                f"{float(fitted):.6g}"))
+        pairs.append(("diffusion audit fitted", f"{audit['n_fit']} of {audit.get('n_steps')} steps, from "
+                                                f"{'step' if numbered else 't ='} {float(fitted):.6g}"))
     unit = "length²/step" if audit.get("note") or "per step index" in str(audit.get("verdict")) else "length²/time"
     if audit.get("significant") and (audit.get("widening") or fits):
         for key, label in (("D_num", f"numerical diffusivity ({unit})"),
@@ -211,17 +244,16 @@ def _page(result, series, pngs, execution, version, *, written=(), contours=Fals
                    f"mapped from [{opts.range[0]:g}, {opts.range[1]:g}] ({opts.phase} phase)") + " · "
                 f"phasegauge {version}")
     page.heading("Findings")
+    said = verdict_lines(getattr(result, "checks", None) or [], bool(result.flags))
     if result.flags:
         page.items(result.flags, css="flag")
-    else:
-        kind = (result.audit or {}).get("interface_kind")
-        resolved = ("sharp interface, resolution judged by droplet sizes" if kind == "sharp" else
-                    "level set near a distance function, resolution judged by droplet sizes" if kind == "level set"
-                    else "interface and droplets resolved")
-        page.items(["no flags: interface not widening, phase volume within tolerance, indicator bounded, "
-                    + resolved], css="ok")
+    elif said:
+        page.items(said[:1], css="ok")
+        said = said[1:]
+    if said:  # what was not checked, and why
+        page.items(said, css="note")
     page.heading("Key figures")
-    page.key_values(_key_figures(result))
+    page.key_values(_key_figures(result, series.get("time_origin")))
     if pngs:
         page.heading("Plots")
         page.figures(pngs)

@@ -11,7 +11,7 @@ from __future__ import annotations
 import numpy as np
 
 from ..errors import OptionError
-from ._canvas import TIME_LABEL, in_mesh_units, legend_outside, new_figure, with_units
+from ._canvas import TIME_LABEL, in_mesh_units, legend_outside, new_figure, time_label, with_units
 
 __all__ = ["plot_interface_overlay", "plot_metric_curves", "plot_metric_differences",
            "plot_shape_history", "plot_reference_check"]
@@ -87,7 +87,7 @@ def _panels(n: int):
     return fig, [fig.add_subplot(rows, cols, i + 1) for i in range(n)]
 
 
-def plot_metric_curves(comparison, *, metrics=None, labels=("A", "B")):
+def plot_metric_curves(comparison, *, metrics=None, labels=("A", "B"), time_origin: str | None = None):
     """Each metric of both runs over time (one panel per metric).
 
     Parameters
@@ -109,13 +109,13 @@ def plot_metric_curves(comparison, *, metrics=None, labels=("A", "B")):
         ax.plot(t, comparison[f"{name}_a"], "-o", ms=2.5, color="tab:blue", label=labels[0])
         ax.plot(t, comparison[f"{name}_b"], "--s", ms=2.5, color="tab:red", label=labels[1])
         ax.set_title(_words(name), fontsize=9)
-        ax.set_xlabel(TIME_LABEL)
+        ax.set_xlabel(time_label(time_origin))
         ax.set_ylabel(with_units(_words(name), name), fontsize=8)
         legend_outside(ax)
     return fig
 
 
-def plot_metric_differences(comparison, *, metrics=None, relative: bool = True):
+def plot_metric_differences(comparison, *, metrics=None, relative: bool = True, time_origin: str | None = None):
     """Differences A - B of each metric over time (relative to |B| by default).
 
     Returns
@@ -131,11 +131,12 @@ def plot_metric_differences(comparison, *, metrics=None, relative: bool = True):
         ax.plot(t, comparison[f"{name}{suffix}"], "-o", ms=2.5, color="tab:purple")
         ax.set_title(f"{_words(name)}: {'(A - B) / |B|' if relative else 'A - B'}", fontsize=9)
         ax.set_ylabel("relative difference" if relative else "difference", fontsize=8)
-        ax.set_xlabel(TIME_LABEL)
+        ax.set_xlabel(time_label(time_origin))
     return fig
 
 
-def plot_shape_history(shapes, *, columns=("mismatch_volume", "dice", "hausdorff", "mean_distance")):
+def plot_shape_history(shapes, *, columns=("mismatch_volume", "dice", "hausdorff", "mean_distance"),
+                       time_origin: str | None = None):
     """Shape metrics over the paired times (one panel each).
 
     Parameters
@@ -155,7 +156,7 @@ def plot_shape_history(shapes, *, columns=("mismatch_volume", "dice", "hausdorff
     for ax, name in zip(panels, cols):
         ax.plot(t, shapes[name], "-o", ms=2.5, color="tab:green")
         ax.set_title(_words(name), fontsize=9)
-        ax.set_xlabel(TIME_LABEL)
+        ax.set_xlabel(time_label(time_origin))
         ax.set_ylabel(with_units(_words(name), name), fontsize=8)
     return fig
 

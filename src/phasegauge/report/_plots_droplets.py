@@ -13,7 +13,7 @@ import pandas as pd
 from matplotlib.figure import Figure
 
 from ..errors import OptionError
-from ._canvas import TIME_LABEL, legend_outside, new_figure, with_units
+from ._canvas import legend_outside, new_figure, time_label, with_units
 
 __all__ = ["plot_droplet_count", "plot_size_distribution"]
 
@@ -38,7 +38,8 @@ def _counts(table: pd.DataFrame) -> pd.DataFrame:
                       fix="pass steps.csv or droplets.csv as a DataFrame")
 
 
-def plot_droplet_count(table: pd.DataFrame, events: pd.DataFrame | None = None) -> Figure:
+def plot_droplet_count(table: pd.DataFrame, events: pd.DataFrame | None = None, *,
+                       time_origin: str | None = None) -> Figure:
     """Droplet count over time, with a marker at each event.
 
     Parameters
@@ -66,7 +67,7 @@ def plot_droplet_count(table: pd.DataFrame, events: pd.DataFrame | None = None) 
             if chosen.any():
                 ax.scatter(events["time"].to_numpy(float)[chosen], at[chosen], color=colour, marker=marker,
                            zorder=3, label=f"{kind} ({int(chosen.sum())})")
-    ax.set_xlabel(TIME_LABEL)
+    ax.set_xlabel(time_label(time_origin))
     ax.set_ylabel("droplet count")
     ax.yaxis.get_major_locator().set_params(integer=True)
     legend_outside(ax)
@@ -74,7 +75,8 @@ def plot_droplet_count(table: pd.DataFrame, events: pd.DataFrame | None = None) 
     return fig
 
 
-def plot_size_distribution(droplets: pd.DataFrame, *, column: str = "equivalent_diameter") -> Figure:
+def plot_size_distribution(droplets: pd.DataFrame, *, column: str = "equivalent_diameter",
+                           time_origin: str | None = None) -> Figure:
     """Droplet sizes over time: every droplet as a point, with the median and the 10-90 % band.
 
     Parameters
@@ -105,7 +107,7 @@ def plot_size_distribution(droplets: pd.DataFrame, *, column: str = "equivalent_
         ax.plot(stats.index, stats[0.5], color="tab:orange", lw=1.5, label="median")
         if size[ok].max() > 20 * size[ok].min():
             ax.set_yscale("log")
-    ax.set_xlabel(TIME_LABEL)
+    ax.set_xlabel(time_label(time_origin))
     ax.set_ylabel(with_units(column.replace("_", " "), column))
     legend_outside(ax)
     ax.grid(alpha=0.3)

@@ -9,12 +9,13 @@ from __future__ import annotations
 import numpy as np
 
 from ..errors import OptionError
-from ._canvas import TIME_LABEL, in_mesh_units, legend_outside, new_figure
+from ._canvas import in_mesh_units, legend_outside, new_figure, time_label
 
 __all__ = ["plot_interface_width", "plot_interface_snapshots", "plot_coarsening", "coarsened_surface"]
 
 
-def plot_interface_width(steps_df, *, time_column: str = "time", title: str | None = None):
+def plot_interface_width(steps_df, *, time_column: str = "time", title: str | None = None,
+                         time_origin: str | None = None):
     """Interface width over time, in length units and in cells.
 
     Parameters
@@ -27,6 +28,8 @@ def plot_interface_width(steps_df, *, time_column: str = "time", title: str | No
     time_column : str
         Column for the horizontal axis (``time``, else ``step`` is used).
     title : str, optional
+    time_origin : str, optional
+        Where the series' times come from; ``index`` (no stored times) labels the axis ``step``.
 
     Returns
     -------
@@ -63,7 +66,7 @@ def plot_interface_width(steps_df, *, time_column: str = "time", title: str | No
     bottom.axhline(4.0 * np.log(19.0) / np.log(9.0), color="0.5", linestyle=":",
                    label="4 cells across 0.1 < c < 0.9")
     bottom.set_ylabel("width (cells)")
-    bottom.set_xlabel(TIME_LABEL if column == "time" else "step")
+    bottom.set_xlabel(time_label(time_origin) if column == "time" else "step")
     legend_outside(bottom)
     bottom.grid(alpha=0.3)
     if title:
@@ -72,7 +75,8 @@ def plot_interface_width(steps_df, *, time_column: str = "time", title: str | No
 
 
 def plot_interface_snapshots(interfaces_by_step, *, bounds, axis_names=("x", "y", "z"), times=None,
-                             max_panels: int = 6, max_triangles: int = 2500, title: str | None = None):
+                             max_panels: int = 6, max_triangles: int = 2500, title: str | None = None,
+                             time_origin: str | None = None):
     """Interfaces of several steps: overlaid in 2D; in 3D one panel per step, the surface in an orthographic view.
 
     Parameters
@@ -87,7 +91,8 @@ def plot_interface_snapshots(interfaces_by_step, *, bounds, axis_names=("x", "y"
     axis_names : sequence of str
         Names of the drawn axes.
     times : dict of int to float, optional
-        Time of each step, for the labels.
+        Time of each step, for the labels (left out where ``time_origin`` is ``index``: the series
+        stores no times, and a step's time is its number).
     max_panels : int
         At most this many steps are drawn, evenly chosen (first and last kept).
     max_triangles : int
@@ -120,7 +125,7 @@ def plot_interface_snapshots(interfaces_by_step, *, bounds, axis_names=("x", "y"
     times = times or {}
 
     def label(step):
-        return f"step {step}" + (f", t = {times[step]:.4g}" if step in times else "")
+        return f"step {step}" + (f", t = {times[step]:.4g}" if step in times and time_origin != "index" else "")
 
     lo, hi = np.asarray(bounds, dtype=float)
     if lo.size == 2:
@@ -160,7 +165,7 @@ def plot_interface_snapshots(interfaces_by_step, *, bounds, axis_names=("x", "y"
     return fig
 
 
-def plot_coarsening(steps_df, fit: dict | None = None):
+def plot_coarsening(steps_df, fit: dict | None = None, *, time_origin: str | None = None):
     """Characteristic length over time on log-log axes, with the fitted power law.
 
     Parameters
@@ -189,7 +194,7 @@ def plot_coarsening(steps_df, fit: dict | None = None):
         ax.loglog(tt, fit["prefactor"] * tt ** fit["exponent"], "-", label=label)
         ax.loglog(tt, fit["prefactor"] * tt[0] ** fit["exponent"] * (tt / tt[0]) ** (1 / 3), ":",
                   color="grey", label="n = 1/3 (Lifshitz-Slyozov)")
-    ax.set_xlabel(TIME_LABEL)
+    ax.set_xlabel(time_label(time_origin))
     ax.set_ylabel(in_mesh_units("characteristic length"))
     ax.legend()
     return fig

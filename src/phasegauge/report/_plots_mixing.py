@@ -11,7 +11,7 @@ import pandas as pd
 from matplotlib.figure import Figure
 
 from ..errors import OptionError
-from ._canvas import TIME_LABEL, in_mesh_units, legend_outside, new_figure
+from ._canvas import in_mesh_units, legend_outside, new_figure, time_label
 
 __all__ = ["plot_mixing_profile", "plot_phase_volume_drift", "plot_mixing_index"]
 
@@ -81,13 +81,13 @@ def plot_mixing_profile(profiles: dict, *, weighting: str = "flow", target: floa
     return figure
 
 
-def _time_axis(steps_df: pd.DataFrame):
+def _time_axis(steps_df: pd.DataFrame, time_origin: str | None = None):
     if "time" in steps_df:
-        return steps_df["time"].to_numpy(dtype=np.float64), TIME_LABEL
+        return steps_df["time"].to_numpy(dtype=np.float64), time_label(time_origin)
     return np.arange(len(steps_df)), "step"
 
 
-def plot_phase_volume_drift(steps_df: pd.DataFrame) -> Figure:
+def plot_phase_volume_drift(steps_df: pd.DataFrame, *, time_origin: str | None = None) -> Figure:
     """Relative phase-volume drift over time (and the part not explained by boundary flux).
 
     Parameters
@@ -103,7 +103,7 @@ def plot_phase_volume_drift(steps_df: pd.DataFrame) -> Figure:
     _require(steps_df, ["phase_volume_drift"], "steps")
     figure = new_figure()
     ax = figure.add_subplot()
-    t, label = _time_axis(steps_df)
+    t, label = _time_axis(steps_df, time_origin)
     ax.plot(t, steps_df["phase_volume_drift"], marker="o", markersize=3, label="(V - V0) / V0")
     if "phase_volume_drift_closed" in steps_df:
         ax.plot(t, steps_df["phase_volume_drift_closed"], marker="s", markersize=3,
@@ -116,7 +116,7 @@ def plot_phase_volume_drift(steps_df: pd.DataFrame) -> Figure:
     return figure
 
 
-def plot_mixing_index(steps_df: pd.DataFrame) -> Figure:
+def plot_mixing_index(steps_df: pd.DataFrame, *, time_origin: str | None = None) -> Figure:
     """Volume-weighted mixing index over time, with the mixed volume fraction when present.
 
     Parameters
@@ -132,7 +132,7 @@ def plot_mixing_index(steps_df: pd.DataFrame) -> Figure:
     _require(steps_df, ["mixing_index"], "steps")
     figure = new_figure()
     ax = figure.add_subplot()
-    t, label = _time_axis(steps_df)
+    t, label = _time_axis(steps_df, time_origin)
     ax.plot(t, steps_df["mixing_index"], marker="o", markersize=3, label="mixing index 1 - sqrt(I)")
     if "mixed_volume_fraction" in steps_df:
         ax.plot(t, steps_df["mixed_volume_fraction"], marker="s", markersize=3,

@@ -8,12 +8,12 @@ from __future__ import annotations
 
 import numpy as np
 
-from ._canvas import TIME_LABEL, new_figure
+from ._canvas import new_figure, time_label
 
 __all__ = ["plot_compositions_on_diagram", "plot_equilibrium_gap", "plot_solute"]
 
 
-def plot_compositions_on_diagram(steps, diagram: dict):
+def plot_compositions_on_diagram(steps, diagram: dict, *, time_origin: str | None = None):
     """Binodal (solid) and spinodal (dashed) against temperature, with each step's measured bulk
     compositions (filled: lean and rich) and mean composition (open), coloured by time.
 
@@ -42,7 +42,7 @@ def plot_compositions_on_diagram(steps, diagram: dict):
     ax.scatter(steps["mean_composition"].to_numpy(dtype=float), temperature, c=time, marker="x", s=26,
                label="mean composition", **norm)
     if len(time):
-        figure.colorbar(shown, ax=ax, label=TIME_LABEL)
+        figure.colorbar(shown, ax=ax, label=time_label(time_origin))
     ax.set_xlim(0.0, 1.0)
     ax.set_ylim(float(np.min(t)), float(np.max(t)))
     ax.set_xlabel(f"mole fraction of {diagram.get('component', 'the component')}")
@@ -51,7 +51,7 @@ def plot_compositions_on_diagram(steps, diagram: dict):
     return figure
 
 
-def plot_equilibrium_gap(steps, *, tolerance: float):
+def plot_equilibrium_gap(steps, *, tolerance: float, time_origin: str | None = None):
     """The larger distance of the bulk compositions from the binodal over time, with the tolerance
     and, where known, the Gibbs-Thomson shift expected for the drops."""
     figure = new_figure(6.0, 3.6)
@@ -62,13 +62,13 @@ def plot_equilibrium_gap(steps, *, tolerance: float):
         ax.plot(time, steps["gibbs_thomson_shift"].to_numpy(dtype=float), "s--", label="Gibbs-Thomson shift")
     ax.axhline(tolerance, color="0.4", linestyle=":", label=f"tolerance {tolerance:g}")
     ax.set_yscale("log")
-    ax.set_xlabel(TIME_LABEL)
+    ax.set_xlabel(time_label(time_origin))
     ax.set_ylabel("gap to the binodal (mole fraction)")
     ax.legend(loc="best", fontsize="small")
     return figure
 
 
-def plot_solute(steps):
+def plot_solute(steps, *, time_origin: str | None = None):
     """The solute's bulk composition in each phase, the partition coefficient and the extraction
     progress over time."""
     figure = new_figure(6.4, 5.0)
@@ -85,7 +85,7 @@ def plot_solute(steps):
     right.plot(time, steps["partition_coefficient"].to_numpy(dtype=float), "s--", color="C3",
                label="partition coefficient")
     right.set_ylabel("partition coefficient K")
-    bottom.set_xlabel(TIME_LABEL)
+    bottom.set_xlabel(time_label(time_origin))
     lines = bottom.get_lines() + right.get_lines()
     bottom.legend(lines, [line.get_label() for line in lines], loc="best", fontsize="small")
     return figure

@@ -7,12 +7,12 @@ from __future__ import annotations
 
 import numpy as np
 
-from ._canvas import TIME_LABEL, in_mesh_units, legend_outside, new_figure
+from ._canvas import in_mesh_units, legend_outside, new_figure, time_label, time_words
 
 __all__ = ["plot_probe_histories", "plot_line_profiles", "plot_validation_overlay"]
 
 
-def plot_probe_histories(probes, *, limit: int = 12):
+def plot_probe_histories(probes, *, limit: int = 12, time_origin: str | None = None):
     """The field at each probe over time (at most ``limit`` probes drawn, in file order).
 
     Parameters
@@ -27,7 +27,7 @@ def plot_probe_histories(probes, *, limit: int = 12):
         rows = probes[probes["probe"] == name]
         ax.plot(rows["time"].to_numpy(dtype=float), rows["value"].to_numpy(dtype=float), marker="o", ms=3,
                 label=str(name))
-    ax.set_xlabel(TIME_LABEL)
+    ax.set_xlabel(time_label(time_origin))
     ax.set_ylabel("field value")
     title = "Probe histories" + (f" (first {limit} of {len(names)})" if len(names) > limit else "")
     ax.set_title(title)
@@ -36,7 +36,7 @@ def plot_probe_histories(probes, *, limit: int = 12):
     return figure
 
 
-def plot_line_profiles(lines, *, steps=None, max_lines: int = 4, max_steps: int = 6):
+def plot_line_profiles(lines, *, steps=None, max_lines: int = 4, max_steps: int = 6, time_origin: str | None = None):
     """The field along each line at chosen steps, one panel per line.
 
     Parameters
@@ -60,7 +60,7 @@ def plot_line_profiles(lines, *, steps=None, max_lines: int = 4, max_steps: int 
             if not len(one):
                 continue
             ax.plot(one["distance"].to_numpy(dtype=float), one["value"].to_numpy(dtype=float),
-                    label=f"t = {float(one['time'].iloc[0]):g}")
+                    label=time_words(float(one['time'].iloc[0]), time_origin))
         ax.set_xlabel(in_mesh_units("distance along the line"))
         ax.set_ylabel("field value")
         ax.set_title(f"line {name}")
@@ -69,7 +69,7 @@ def plot_line_profiles(lines, *, steps=None, max_lines: int = 4, max_steps: int 
     return figure
 
 
-def plot_validation_overlay(table, summary=None):
+def plot_validation_overlay(table, summary=None, *, time_origin: str | None = None):
     """Simulated against measured values, with the stated uncertainty as error bars.
 
     Parameters
@@ -92,7 +92,7 @@ def plot_validation_overlay(table, summary=None):
         if np.isfinite(unc[ok]).any():
             ax.errorbar(measured[ok], simulated[ok], xerr=err[ok], fmt="none", ecolor="0.6", lw=0.8, zorder=2)
         if len(np.unique(times[ok])) > 1:
-            figure.colorbar(points, ax=ax, label=TIME_LABEL)
+            figure.colorbar(points, ax=ax, label=time_label(time_origin))
         lo = float(min(measured[ok].min(), simulated[ok].min()))
         hi = float(max(measured[ok].max(), simulated[ok].max()))
         ax.plot([lo, hi], [lo, hi], color="k", lw=0.8, ls="--", label="simulated = measured")

@@ -380,13 +380,15 @@ def assemble(series, results: list, options, *, notes=(), feed: TrackingFeed | N
     if any(r.contour is not None for r in done):
         last = done[-1]
         mesh = (mesh_pool.find(last.mesh_signature) if mesh_pool is not None else None) or last.outline
+    from ._checks import standing_checks
     from ._mixture import mixture_report_arrays
 
     return MeasureResult(steps=steps, droplets=droplets, events=events, profiles=profiles, audit=audit,
                          flags=[f.text for f in found], skipped=skipped, options=options, results=results,
                          mesh=mesh, warnings=[text for _, text in summary], findings=found, probes=probes,
                          lines=lines, validation=validation, validation_summary=validation_summary,
-                         phase_diagram=mixture_report_arrays(steps, options))
+                         phase_diagram=mixture_report_arrays(steps, options),
+                         checks=standing_checks(steps, audit, options))
 
 
 #: overshoot and drift below this share of the domain volume are round-off (c carried in float64

@@ -1,0 +1,65 @@
+"""Which of the report's standing checks a run made, and why any was not made.
+
+The clean verdict of a run ("no flags: interface not widening, phase volume within tolerance, indicator
+bounded, interface and droplets resolved") holds only for the checks that ran: ``--analyses`` can leave
+some out, a run too short leaves the diffusion audit without a fit, and a sharp interface or a level set
+has no width to judge. :func:`standing_checks` says, for each check, whether it was made and, if not, why;
+:func:`phasegauge.report._measure_report.verdict_lines` turns that and the flags into the lines the
+report, stdout and compare give.
+"""
+
+from __future__ import annotations
+
+import numpy as np
+
+__all__ = ["standing_checks", "NOT_IN_ANALYSES"]
+
+#: why a check was not made when its analysis was not chosen
+NOT_IN_ANALYSES = "not in --analyses"
+
+
+def _check(name: str, passed: str, reason: str = "") -> dict:
+    return {"check": name, "made": not reason, "passed_as": passed, "not_made_because": reason}
+
+
+def standing_checks(steps, audit: dict, options) -> list:
+    """The checks a clean run vouches for, each a dict: ``check`` (its name), ``made`` (bool),
+    ``passed_as`` (the words that say it passed) and ``not_made_because`` (empty when made).
+
+    Made only where the run measured what the check reads: the diffusion audit fitted a width history
+    (``interface_widening``), the phase volume over two steps or more (``phase_volume_drift``), the
+    overshoot volume (``indicator_bounds``), the share of the interface under 4 cells across on a
+    diffuse interface (``interface_resolution``) and the droplets (``droplet_resolution``).
+    """
+    analyses = set(getattr(options, "analyses", ()))
+    level_set = bool(getattr(options, "level_set", False))
+    kind = (audit or {}).get("interface_kind")
+    found = []
+    # the diffusion audit: a fitted diffusivity, or nothing to judge
+    audit = audit or {}
+    fitted = np.isfinite(float(audit.get("D_num", np.nan)))
+    verdict = str(audit.get("verdict") or "no width measured")
+    why = ("" if "interface" in analyses and not level_set and fitted
+           else NOT_IN_ANALYSES if "interface" not in analyses
+           else "a level set has no width of its own" if level_set or kind == "level set"
+           else verdict if verdict.startswith("too few")
+           else "sharp interface: its width is the scheme's reconstruction" if kind == "sharp" else verdict)
+    found.append(_check("interface_widening", "interface not widening", why))
+    n = len(steps) if steps is not None else 0
+    measured = steps is not None and "phase_volume_drift" in steps
+    why = ("" if "conservation" in analyses and measured and n > 1 else NOT_IN_ANALYSES
+           if "conservation" not in analyses else "one step only: no change to judge" if measured
+           else "no phase volume measured")
+    found.append(_check("phase_volume_drift", "phase volume within tolerance", why))
+    why = ("" if steps is not None and "overshoot_volume" in steps else NOT_IN_ANALYSES
+           if "conservation" not in analyses else "no overshoot volume measured")
+    found.append(_check("indicator_bounds", "indicator bounded", why))
+    why = ("" if "interface" in analyses and kind not in ("sharp", "level set") and not level_set
+           and steps is not None and "under_resolved_interface_fraction" in steps
+           else NOT_IN_ANALYSES if "interface" not in analyses
+           else "a level set has no width of its own" if level_set or kind == "level set"
+           else "a sharp interface is one to two cells by design" if kind == "sharp"
+           else "no interface thickness measured")
+    found.append(_check("interface_resolution", "interface resolved", why))
+    found.append(_check("droplet_resolution", "droplets resolved", "" if "droplets" in analyses else NOT_IN_ANALYSES))
+    return found
