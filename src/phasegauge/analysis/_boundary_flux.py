@@ -7,6 +7,7 @@ import numpy as np
 from ..errors import OptionError
 from ..model._centroids import cell_centroids_of
 from ..model._faces import kept_neighbours
+from ..model._whole_cells import whole_cells
 from ..model.fields import field_location, vector_values
 from ..model.mesh import Mesh
 from ._boundary_reach import on_periodic_planes, periodic_columns
@@ -90,10 +91,7 @@ def _neighbour_slots(mesh: Mesh, owners: np.ndarray):
     """
     table = kept_neighbours(mesh)
     if table is not None:
-        rows = table[owners]
-        for k in range(int(np.count_nonzero(rows >= 0, axis=1).max(initial=0))):
-            has = rows[:, k] >= 0
-            yield has, np.where(has, rows[:, k], owners)
+        yield from _table_slots(table, owners)
         return
     pairs = mesh.face_pairs
     src = np.concatenate([pairs[:, 0], pairs[:, 1]])
@@ -107,14 +105,39 @@ def _neighbour_slots(mesh: Mesh, owners: np.ndarray):
         yield has, np.where(has, dst[np.minimum(start + k, max(len(dst) - 1, 0))], owners)
 
 
+def _table_slots(table: np.ndarray, owners: np.ndarray):
+    """:func:`_neighbour_slots` read from a neighbour table (rows -1 padded): yields (has, neighbour)."""
+    rows = table[owners]
+    for k in range(int(np.count_nonzero(rows >= 0, axis=1).max(initial=0))):
+        has = rows[:, k] >= 0
+        yield has, np.where(has, rows[:, k], owners)
+
+
+def _wall_test_cells(mesh, u: np.ndarray, owners: np.ndarray) -> tuple:
+    """The cells the wall test reads: (centroids, velocities, the owners' cells, neighbour slots).
+
+    On a mesh whose cells a reader split (:attr:`Mesh.cell_parents`), the whole cells: a boundary
+    piece's face neighbours are mostly pieces of its own cell, with the cell's velocity, and the
+    fall of u.n to zero at a wall would never be seen (a closed box of polyhedra read open).
+    """
+    if mesh.cell_parents is None:
+        return mesh.cell_centroids, u, owners, _neighbour_slots(mesh, owners)
+    whole = whole_cells(mesh)
+    cells = np.asarray(mesh.cell_parents[owners], dtype=np.intp)
+    return whole.cell_centroids, whole.mean_of(u), cells, _table_slots(whole.face_neighbours, cells)
+
+
 def _open_cell_faces(mesh, u, owners, unit, centre, threshold) -> tuple[np.ndarray, np.ndarray]:
     """Normal velocity of each piece's cell and whether the piece is open (cell-centred velocity).
 
     u.n (with the piece's normal) is reconstructed linearly to the face centre from the cell and
     its face neighbours (least-squares gradient); at a wall it falls to zero, or past it, towards
-    the face, through an inlet or outlet it keeps its value.
+    the face, through an inlet or outlet it keeps its value. On a split mesh the cell and its
+    neighbours are whole cells (:func:`_wall_test_cells`); the u.n returned is the piece's own.
     """
-    X = mesh.cell_centroids
+    un_own = np.einsum("nd,nd->n", u[owners], unit)
+    un_own = np.where(np.isfinite(un_own), un_own, 0.0)
+    X, u, owners, slots = _wall_test_cells(mesh, u, owners)
     un = np.einsum("nd,nd->n", u[owners], unit)
     un = np.where(np.isfinite(un), un, 0.0)
     dim = X.shape[1]
@@ -122,7 +145,7 @@ def _open_cell_faces(mesh, u, owners, unit, centre, threshold) -> tuple[np.ndarr
     b = np.zeros((len(owners), dim))
     own_depth = np.einsum("nd,nd->n", centre - X[owners], unit)  # distance of the centroid from the face
     deepest, deepest_depth, deepest_un = owners.copy(), own_depth.copy(), un.copy()
-    for has, nb in _neighbour_slots(mesh, owners):
+    for has, nb in slots:
         d = X[nb] - X[owners]
         un_nb = np.einsum("nd,nd->n", u[nb], unit)
         du = un_nb - un
@@ -150,7 +173,7 @@ def _open_cell_faces(mesh, u, owners, unit, centre, threshold) -> tuple[np.ndarr
     tangential = np.linalg.norm(u[owners] - un[:, None] * unit, axis=1)
     across = np.abs(un) >= WALL_RATIO * np.where(np.isfinite(tangential), tangential, 0.0)
     is_open = (np.abs(un) > threshold) & keeps & across
-    return un, is_open
+    return un_own, is_open
 
 
 def open_boundary_flux(mesh: Mesh, velocity, c=None, *, tolerance: float = OPEN_TOLERANCE,
@@ -208,7 +231,9 @@ def open_boundary_flux(mesh: Mesh, velocity, c=None, *, tolerance: float = OPEN_
     wall cell of a cell-centred solver carries a small u.n, of order h^2 at
     a no-slip wall, that is not a flux), so walls are closed and a closed
     box has no boundary flux at all; through an inlet or outlet u.n keeps
-    its value. Flow leaving at less than about 6 degrees to the boundary is
+    its value. On a mesh whose cells a reader split (``mesh.cell_parents``)
+    the test reads the whole cells: their centroids, volume-weighted
+    velocities and face neighbours. Flow leaving at less than about 6 degrees to the boundary is
     not counted.
 
     *Velocity on points* (no cell values): a face is open where u.n at its
