@@ -257,9 +257,11 @@ class PolyhedralRead:
         from ..model._faces import SPLIT_FACES
         from ..model.polyhedra import SPLIT_CENTRES, SplitCentres
 
-        split = self.split
-        mesh.memo(self._KEY, lambda: (self.signature, split))
-        if isinstance(split, OrdinaryCells):
+        kept = self.split
+        mesh.memo(self._KEY, lambda: (self.signature, kept))
+        # polyhedra coned beside whole cells add their centres after the points too
+        split = kept.coned if isinstance(kept, OrdinaryCells) else kept
+        if split is None:
             return
         if (split.n_centres and mesh.point_merge is None
                 and mesh.n_points == split.n_points + split.n_centres):
