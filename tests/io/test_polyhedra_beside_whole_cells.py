@@ -235,13 +235,16 @@ def test_bent_faces_between_hexahedra_and_coned_polyhedra_conform(tmp_path):
     assert f"the other {odd} as" in words and f"the file's {len(native)} hexahedra" in words
 
 
-def _ball_runs(tmp_path, cut_layers):
+def _ball_runs(tmp_path, cut_layers, twice=False):
     """A volume-of-fluid ball (r = 0.3, 1 in the cells whose centre is inside) on a 16^3 grid, written
     as VTK hexahedra and as the polyhedra of :func:`_polyhedral_grid` (their faces between the x-layers
-    ``cut_layers`` written as two triangles): the two files' paths."""
+    ``cut_layers`` written as two triangles; with ``twice`` one point written twice, merged on
+    reading): the two files' paths."""
     mesh = grid_mesh((16, 16, 16), kind="hexahedron")
     alpha = (np.linalg.norm(mesh.cell_centroids - 0.5, axis=1) < 0.3).astype(float)
     grid, _ = _polyhedral_grid(mesh, mesh.points, 16, cut_layers=cut_layers)
+    if twice:
+        grid.points = np.vstack([grid.points, grid.points[:1]])
     hexa = pv.UnstructuredGrid({pv.CellType.HEXAHEDRON: mesh.blocks[0].connectivity}, mesh.points)
     paths = []
     for name, written in (("poly", grid), ("hexa", hexa)):
@@ -252,9 +255,11 @@ def _ball_runs(tmp_path, cut_layers):
     return paths
 
 
-@pytest.mark.parametrize("cut_layers, kinds", [(range(16), {"tetra"}),  # no ordinary cell: all split
-                                               ((6, 7, 8), {"hexahedron", "pyramid", "tetra"})])  # coned
-def test_cell_data_at_added_centres_is_their_corners_mean(tmp_path, cut_layers, kinds):
+@pytest.mark.parametrize("cut_layers, kinds, twice", [(range(16), {"tetra"}, False),  # no ordinary cell: all split
+                                                      (range(16), {"tetra"}, True),  # and a point merged
+                                                      ((6, 7, 8), {"hexahedron", "pyramid", "tetra"}, False)])  # coned
+@pytest.mark.filterwarnings("ignore:.*duplicate points merged")
+def test_cell_data_at_added_centres_is_their_corners_mean(tmp_path, cut_layers, kinds, twice):
     # (before the tests that ask for `every_polyhedron_split`: the module keeps it from the first on)
     # A cell field's point fit at a centre the reader added sees one cell's pieces only, so it gave the
     # centre that cell's value (0 or 1): the contour bulged at every centre (16^3, all split: area 1.310,
@@ -264,7 +269,7 @@ def test_cell_data_at_added_centres_is_their_corners_mean(tmp_path, cut_layers, 
     from phasegauge.model.indicator import make_indicator
     from phasegauge.model.polyhedra import SPLIT_CENTRES
 
-    poly, hexa = _ball_runs(tmp_path, cut_layers)
+    poly, hexa = _ball_runs(tmp_path, cut_layers, twice)
     step = Series(poly).read(0)
     mesh = step.mesh
     assert set(mesh.cell_type_counts) == kinds
