@@ -124,12 +124,15 @@ def test_sphere_on_polyhedra_added_centres_measured_from_their_corners(tmp_path,
     assert same.mean() > 0.97
 
 
-def test_polyhedra_with_a_merged_point_search_every_point(tmp_path):
-    # a file with one point written twice: the reader merges it, the centres' numbers no longer
-    # follow the split's, so no corner lists are handed over and every point the widths need is
-    # searched: the same distances as a search of each [the search is checked against the
-    # sphere's |r - R| in test_sphere_on_polyhedra_distances_and_widths]
+def test_polyhedra_with_merged_points_hand_over_their_centres_while_last(tmp_path):
+    # a file with one point written twice: the reader merges it, and the centres stay the mesh's last
+    # points (coincident points are numbered in order of first appearance), so their corner lists are
+    # handed over renumbered: the same mesh, centres and distances as the file without the copy. A file
+    # point on an added centre puts it among the file's points: no corner lists, and every point the
+    # widths need is searched, the same distances as a search of each [the search is checked against
+    # the sphere's |r - R| in test_sphere_on_polyhedra_distances_and_widths]
     from phasegauge.analysis._signed_distance import _signed_distance
+    from phasegauge.errors import MeshWarning
     from phasegauge.model.polyhedra import SPLIT_CENTRES
 
     n = 12
@@ -140,15 +143,27 @@ def test_polyhedra_with_a_merged_point_search_every_point(tmp_path):
 
     hexa = grid_mesh((n, n, n), kind="hexahedron", jitter=0.2, seed=5)
     grid = to_polyhedral_grid(hexa, point_data={"c": profile(hexa.points)})
-    twice = grid.copy()
-    twice.points = np.vstack([grid.points, grid.points[:1]])
-    twice.point_data["c"] = np.concatenate([grid.point_data["c"], grid.point_data["c"][:1]])
-    path = str(tmp_path / "twice.vtu")
-    twice.save(path)
-    from phasegauge.errors import MeshWarning
-
-    with pytest.warns(MeshWarning, match="1 duplicate points merged"):
-        mesh = Series(path).read(0).mesh
+    grid.save(str(tmp_path / "once.vtu"))
+    once = Series(str(tmp_path / "once.vtu")).read(0).mesh
+    plain = once.memo(SPLIT_CENTRES, lambda: None, keep=False)
+    meshes = []
+    for name, extra in (("twice", grid.points[:1]), ("on_a_centre", once.points[-1:])):
+        written = grid.copy()
+        written.points = np.vstack([grid.points, extra])
+        written.point_data["c"] = profile(written.points)
+        written.save(str(tmp_path / f"{name}.vtu"))
+        with pytest.warns(MeshWarning, match="1 duplicate points merged"):
+            meshes.append(Series(str(tmp_path / f"{name}.vtu")).read(0).mesh)
+    twice, on_centre = meshes
+    centres = twice.memo(SPLIT_CENTRES, lambda: None, keep=False)
+    assert centres is not None and centres.first == plain.first == hexa.points.shape[0]
+    np.testing.assert_array_equal(centres.corners, plain.corners)
+    np.testing.assert_array_equal(centres.offsets, plain.offsets)
+    np.testing.assert_array_equal(twice.points, once.points)
+    distances = [interface_metrics(mesh, profile(mesh.coordinates), return_distances=True)[1].point
+                 for mesh in (once, twice)]
+    np.testing.assert_array_equal(*distances)
+    mesh = on_centre
     assert mesh.cell_parents is not None
     assert mesh.memo(SPLIT_CENTRES, lambda: None, keep=False) is None
     c = profile(mesh.coordinates)

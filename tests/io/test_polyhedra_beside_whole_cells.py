@@ -235,6 +235,62 @@ def test_bent_faces_between_hexahedra_and_coned_polyhedra_conform(tmp_path):
     assert f"the other {odd} as" in words and f"the file's {len(native)} hexahedra" in words
 
 
+def _ball_runs(tmp_path, cut_layers, twice=False):
+    """A volume-of-fluid ball (r = 0.3, 1 in the cells whose centre is inside) on a 16^3 grid, written
+    as VTK hexahedra and as the polyhedra of :func:`_polyhedral_grid` (their faces between the x-layers
+    ``cut_layers`` written as two triangles; with ``twice`` one point written twice, merged on
+    reading): the two files' paths."""
+    mesh = grid_mesh((16, 16, 16), kind="hexahedron")
+    alpha = (np.linalg.norm(mesh.cell_centroids - 0.5, axis=1) < 0.3).astype(float)
+    grid, _ = _polyhedral_grid(mesh, mesh.points, 16, cut_layers=cut_layers)
+    if twice:
+        grid.points = np.vstack([grid.points, grid.points[:1]])
+    hexa = pv.UnstructuredGrid({pv.CellType.HEXAHEDRON: mesh.blocks[0].connectivity}, mesh.points)
+    paths = []
+    for name, written in (("poly", grid), ("hexa", hexa)):
+        written.cell_data["alpha"] = alpha
+        (tmp_path / name).mkdir()
+        paths.append(str(tmp_path / name / "ball.vtu"))
+        written.save(paths[-1])
+    return paths
+
+
+@pytest.mark.parametrize("cut_layers, kinds, twice", [(range(16), {"tetra"}, False),  # no ordinary cell: all split
+                                                      (range(16), {"tetra"}, True),  # and a point merged
+                                                      ((6, 7, 8), {"hexahedron", "pyramid", "tetra"}, False)])  # coned
+@pytest.mark.filterwarnings("ignore:.*duplicate points merged")
+def test_cell_data_at_added_centres_is_their_corners_mean(tmp_path, cut_layers, kinds, twice):
+    # (before the tests that ask for `every_polyhedron_split`: the module keeps it from the first on)
+    # A cell field's point fit at a centre the reader added sees one cell's pieces only, so it gave the
+    # centre that cell's value (0 or 1): the contour bulged at every centre (16^3, all split: area 1.310,
+    # sphericity 0.884, 0.98 cells across; x-layers 6-8 coned: 1.244, 0.931, 1.92). The centres take
+    # their corners' mean, as for point data: all split 1.136, 1.019, 1.86; coned 1.151, 1.006, 1.96;
+    # the same cells as hexahedra 1.127, 1.028, 2.03; the sphere 4 pi 0.3^2 = 1.131.
+    from phasegauge.model.indicator import make_indicator
+    from phasegauge.model.polyhedra import SPLIT_CENTRES
+
+    poly, hexa = _ball_runs(tmp_path, cut_layers, twice)
+    step = Series(poly).read(0)
+    mesh = step.mesh
+    assert set(mesh.cell_type_counts) == kinds
+    centres = mesh.memo(SPLIT_CENTRES, lambda: None, keep=False)
+    assert centres is not None and mesh.n_points - centres.first == centres.offsets.size - 1 > 0
+    values = make_indicator(mesh, step.fields, "alpha").point
+    for j in range(centres.offsets.size - 1):  # numpy's mean of each centre's corners, one at a time
+        corners = centres.corners[centres.offsets[j]:centres.offsets[j + 1]]
+        # the corners are the centre's (its place is their coordinates' mean) and give it their mean value
+        np.testing.assert_allclose(mesh.points[centres.first + j], mesh.points[corners].mean(axis=0), atol=1e-14)
+        assert values[centres.first + j] == pytest.approx(values[corners].mean(), abs=1e-14)
+    got, twin = (measure(path, "alpha") for path in (poly, hexa))
+    sphere = 4 * np.pi * 0.3 ** 2  # the ball's area
+    for result in (got, twin):
+        assert result.steps["interface_size"].iloc[0] == pytest.approx(sphere, rel=0.03)  # our threshold
+    assert got.steps["interface_size"].iloc[0] == pytest.approx(twin.steps["interface_size"].iloc[0], rel=0.03)
+    assert abs(got.droplets["sphericity"].iloc[0] - twin.droplets["sphericity"].iloc[0]) < 0.03  # our threshold
+    cells = got.steps["interface_cells_across"].iloc[0] / twin.steps["interface_cells_across"].iloc[0]
+    assert 0.85 < cells < 1.15  # our threshold (the centres at the cell's value halved it)
+
+
 def test_pieces_of_negative_volume_are_reported_by_kind(tmp_path):
     # an L-shaped prism (not star-shaped from its corner mean) beside a hexahedron written as one:
     # some of its pyramids and tetrahedra turn over, and the warning counts each kind

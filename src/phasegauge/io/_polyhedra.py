@@ -252,18 +252,19 @@ class PolyhedralRead:
     def keep_split(self, mesh) -> None:
         """Keep the split with ``mesh`` (for the next steps of a series), and give the mesh the
         tetrahedra's face neighbours when its cells are the split's tetrahedra themselves, and the
-        added centres' corner lists when its points are the split's points and centres in order
-        (no points merged, none added beside them)."""
+        added centres' corner lists when the centres are its last points (:func:`_mesh_centres`)."""
         from ..model._faces import SPLIT_FACES
-        from ..model.polyhedra import SPLIT_CENTRES, SplitCentres
+        from ..model.polyhedra import SPLIT_CENTRES
 
-        split = self.split
-        mesh.memo(self._KEY, lambda: (self.signature, split))
-        if isinstance(split, OrdinaryCells):
+        kept = self.split
+        mesh.memo(self._KEY, lambda: (self.signature, kept))
+        # polyhedra coned beside whole cells add their centres after the points too
+        split = kept.coned if isinstance(kept, OrdinaryCells) else kept
+        if split is None:
             return
-        if (split.n_centres and mesh.point_merge is None
-                and mesh.n_points == split.n_points + split.n_centres):
-            mesh.memo(SPLIT_CENTRES, lambda: SplitCentres(split.n_points, split.centre_points, split.centre_offsets))
+        centres = _mesh_centres(split, mesh)
+        if centres is not None:
+            mesh.memo(SPLIT_CENTRES, lambda: centres)
         if (split.neighbours is not None and len(mesh.blocks) == 1
                 and mesh.blocks[0].connectivity is split.tetra):
             mesh.memo(SPLIT_FACES, lambda: split.neighbours)
@@ -396,6 +397,33 @@ class PolyhedralRead:
     def _cell_data_of(self, rows_of: list) -> dict:
         """The numeric cell fields per block, block ``k`` taking the input rows ``rows_of[k]``."""
         return {name: [values[r] for r in rows_of] for name, values in self._numeric_cell_data().items()}
+
+
+def _mesh_centres(split, mesh):
+    """The centres ``split`` added as numbered among the points of ``mesh``
+    (:class:`~phasegauge.model.polyhedra.SplitCentres`), or None when they are not its last points.
+
+    Unmerged, the mesh's points are the split's points and centres in order. A merge of coincident
+    points numbers them in order of first appearance, so the centres stay last unless one fell on
+    a point of the file; the copies of a face centre that cells written with their own copies of
+    their corners each add are one point there, with the first copy's corners (merged alike).
+    """
+    from ..model.polyhedra import SplitCentres
+
+    n, merge = split.n_points, mesh.point_merge
+    corners, offsets = split.centre_points, split.centre_offsets
+    if not split.n_centres or (mesh.n_points if merge is None else merge.size) != n + split.n_centres:
+        return None
+    if merge is None:
+        return SplitCentres(n, corners, offsets)
+    first, tail = int(merge[:n].max(initial=-1)) + 1, merge[n:]
+    if tail.min() < first:
+        return None
+    _, pick = np.unique(tail, return_index=True)  # the first copy of each centre, in the mesh's order
+    sizes = np.diff(offsets)[pick]
+    kept = np.concatenate([[0], np.cumsum(sizes)]).astype(np.int64)
+    rows = np.repeat(offsets[pick] - kept[:-1], sizes) + np.arange(kept[-1])
+    return SplitCentres(first, merge[corners[rows]], kept)
 
 
 @dataclass(frozen=True, eq=False)

@@ -25,7 +25,7 @@ import numpy as np
 
 from ..errors import UnsupportedMeshError
 from ._centroids import cell_centroids_of, mesh_geometry, piece_measures, whole_cell_sizes, zero_measures
-from ._conversions import corner_sums, linear_point_values
+from ._conversions import corner_sums, linear_point_values, with_centre_means
 from ._faces import cell_adjacency, face_pairs, face_topology, grid_face_numbers, grouped_faces, unique_edges
 from ._grouping import unique_ints
 from ._regular_grid import RegularGrid, find_regular_grid
@@ -571,6 +571,7 @@ class Mesh:
             out = np.where(weight > 0, total / np.where(weight > 0, weight, 1.0), np.nan)
         if method == "linear":
             out = linear_point_values(self, flat, np.all(finite, axis=1), out)
+        out = with_centre_means(self, out)  # centres a reader added: their corners' mean, either method
         return out.reshape((self.n_points,) + v.shape[1:])
 
     @cached_property

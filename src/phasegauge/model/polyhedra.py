@@ -157,6 +157,11 @@ class SplitCentres(NamedTuple):
     corners: np.ndarray
     offsets: np.ndarray
 
+    def centre_values(self, values: np.ndarray) -> np.ndarray:
+        """Values at the centres from the mesh points' ``values`` (n_points, ...): the mean of their
+        corners' values, the rule of :meth:`PolyhedraSplit.centre_values` (the reader's point data)."""
+        return corner_means(values, self.corners, self.offsets)
+
 
 def cell_face_stream(cell_type: str, connectivity: np.ndarray) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
     """The faces of ordinary 3D cells as a face stream (see :func:`split_polyhedra`).
