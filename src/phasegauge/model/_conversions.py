@@ -123,9 +123,43 @@ def _fit_of(rows, cols, dx, w, indptr, d: int, n: int) -> PointFit:
 
 
 def point_fit(mesh: Mesh) -> PointFit:
-    """The :class:`PointFit` of ``mesh`` with every cell good (built once per mesh; the stencil
-    it is made from is not kept)."""
-    return mesh.memo("point_fit", lambda: _fit_of(*_stencil(mesh, keep=False), mesh.dimension, mesh.n_points))
+    """The :class:`PointFit` of ``mesh`` with every cell good (built once per mesh).
+
+    Made a chunk of points at a time (about :data:`_FIT_PAIRS` (point, cell) pairs each): the stencil's
+    offsets and weights (48 bytes a pair) and the normal matrices exist for one chunk only, the same numbers bit for bit
+    as one pass over all points (every sum runs over one point's pairs). The fit's cells are the
+    transposed incidence's own column indices (shared, not copied)."""
+    return mesh.memo("point_fit", lambda: _chunked_fit(mesh))
+
+
+#: (point, cell) pairs per chunk of :func:`point_fit` (0.25M tetrahedra, 1M pairs: a first fit's peak
+#: +89 MB in one pass)
+_FIT_PAIRS = 1 << 16
+
+
+def _chunked_fit(mesh: Mesh) -> PointFit:
+    """:func:`point_fit`'s work: :func:`_fit_of` over the stencil of each chunk of points."""
+    at = mesh._incidence_t
+    indptr, n, d = at.indptr, mesh.n_points, mesh.dimension
+    scale = np.median(mesh.cell_sizes) ** 2 if mesh.n_cells else 1.0
+    coef = np.empty(at.indices.size)
+    starts, points, posed = [], [], []
+    bounds = np.unique(np.concatenate([[0], np.searchsorted(indptr, np.arange(_FIT_PAIRS, indptr[-1], _FIT_PAIRS)),
+                                       [n]]))
+    for p0, p1 in zip(bounds[:-1].tolist(), bounds[1:].tolist()):
+        a, b = int(indptr[p0]), int(indptr[p1])
+        local = (indptr[p0:p1 + 1] - a).astype(np.int64)
+        rows = np.repeat(np.arange(p0, p1), np.diff(local))
+        cols = at.indices[a:b].astype(np.int64)
+        dx = mesh.cell_centroids[cols] - mesh.coordinates[rows]
+        w = 1.0 / np.maximum(np.einsum("nd,nd->n", dx, dx), 1e-12 * scale)
+        part = _fit_of(rows - p0, cols, dx, w, local, d, p1 - p0)
+        coef[a:b] = part.coef
+        starts.append(part.starts + a)
+        points.append(part.points + p0)
+        posed.append(part.posed)
+    join = (lambda parts, dtype: np.concatenate(parts) if parts else np.zeros(0, dtype=dtype))
+    return PointFit(at.indices, join(starts, np.int64), join(points, np.int64), coef, join(posed, bool))
 
 
 def good_cells_fit(mesh: Mesh, good: np.ndarray) -> PointFit:
@@ -164,19 +198,29 @@ def linear_point_values(mesh: Mesh, flat: np.ndarray, good: np.ndarray, fallback
 
 
 def _fitted_values(fit: PointFit, flat: np.ndarray, fallback: np.ndarray, limited: bool = True) -> np.ndarray:
-    """:func:`linear_point_values` by a :class:`PointFit` (every cell's, or the good cells')."""
+    """:func:`linear_point_values` by a :class:`PointFit` (every cell's, or the good cells').
+
+    A chunk of points at a time (about :data:`_FIT_PAIRS` pairs each): the gathered cell values and
+    their products (16 bytes a pair and column) exist for one chunk only; every sum runs over one
+    point's pairs, so the values are those of one pass bit for bit."""
     out = fallback.copy()
     if not fit.posed.any():
         return out
-    vals = np.take(flat, fit.cols, axis=0)  # (m, k)
-    value = np.add.reduceat(fit.coef[:, None] * vals, fit.starts, axis=0)
-    if not limited:
-        out[fit.points[fit.posed]] = value[fit.posed]
-        return out
-    vmax = np.maximum.reduceat(vals, fit.starts, axis=0)
-    vmin = np.minimum.reduceat(vals, fit.starts, axis=0)
-    keep = fit.posed
-    out[fit.points[keep]] = np.clip(value[keep], vmin[keep], vmax[keep])
+    m = fit.cols.size
+    heads = np.append(fit.starts, m)  # each point's first pair, and the end
+    bounds = np.unique(np.concatenate([[0], np.searchsorted(heads, np.arange(_FIT_PAIRS, m, _FIT_PAIRS)),
+                                       [fit.starts.size]]))
+    for j0, j1 in zip(bounds[:-1].tolist(), bounds[1:].tolist()):
+        a, b = int(heads[j0]), int(heads[j1])
+        keep = fit.posed[j0:j1]
+        if not keep.any():
+            continue
+        at = fit.starts[j0:j1] - a
+        vals = np.take(flat, fit.cols[a:b], axis=0)  # (pairs, k)
+        value = np.add.reduceat(fit.coef[a:b, None] * vals, at, axis=0)
+        if limited:
+            value = np.clip(value, np.minimum.reduceat(vals, at, axis=0), np.maximum.reduceat(vals, at, axis=0))
+        out[fit.points[j0:j1][keep]] = value[keep]
     return out
 
 
