@@ -9,7 +9,9 @@ are read with their own format's reader and joined into one mesh; polygon-data
 blocks (``.vtp``: boundary patches, surfaces) are left out and named by
 :func:`multiblock_blocks`; so are volume-format blocks whose cells are all of a lower dimension than
 another block's (patches written as unstructured grids of faces), named in a warning when read. The
-step's time is the one stored in the first volume block's field data.
+step's time is the one the multiblock file stores in its own ``<FieldData>`` (where VTK's multiblock writer
+puts it); when it stores none, the one stored in the first volume block's field data. Where both store a
+time and they differ, the multiblock file's is used and a warning names both.
 """
 
 from __future__ import annotations
@@ -129,8 +131,9 @@ def read_multiblock(path: str):
     """Read the volume blocks of a multiblock file as one meshio-style mesh.
 
     Several volume blocks are joined (points numbered on); a field is kept when
-    every block holds it with the same components. The field data (the stored
-    time) is the first block's. Cells a block's reader split (convex point sets)
+    every block holds it with the same components. The field data is the first
+    block's, its time replaced by the one the multiblock file itself stores
+    (:func:`own_time`). Cells a block's reader split (convex point sets)
     stay marked as pieces of their cell (``cell_pieces``).
     """
     from ._formats import read_mesh_file
@@ -140,7 +143,7 @@ def read_multiblock(path: str):
     pieces = [read_mesh_file(_volume_file(path, file)) for _, file in blocks.volume]
     pieces = _without_patches(pieces, blocks.volume, path)
     if len(pieces) == 1:
-        return pieces[0]
+        return _with_own_time(pieces[0], path, blocks.volume[0][0])
     pieces = [_owned_cells(piece) for piece in pieces]
     points, cells, offset = [], [], 0
     single = any(np.asarray(p.points).dtype == np.float32 for p in pieces)
@@ -156,6 +159,7 @@ def read_multiblock(path: str):
                  for name in pieces[0].cell_data if _shared(pieces, "cell_data", name)}
     joined = new_mesh(points, cells, point_data=point_data, cell_data=cell_data,
                       field_data=dict(pieces[0].field_data or {}))
+    joined = _with_own_time(joined, path, blocks.volume[0][0])
     joined.block_sizes = block_sizes  # points merged across blocks are the join, not duplicates
     joined.single_precision_points = single
     if any(getattr(p, "cell_pieces", None) for p in pieces):  # cells a reader split stay marked per block
@@ -282,10 +286,94 @@ def _shared(pieces, kind: str, name: str) -> bool:
     return len(shapes) == 1
 
 
-def peek_multiblock_time(path: str):
-    """The time stored in the first volume block (see :func:`phasegauge.io._formats.peek_time`)."""
-    from ._formats import peek_time
+def own_time(path: str, *, decode: bool = True):
+    """The time a multiblock file stores in its own ``<FieldData>`` (VTK's multiblock writer puts the
+    step's ``TimeValue`` there, not in the blocks), as a one-value field-data dict ``{name: array}``; {} when
+    it stores none, and :data:`~phasegauge.io._formats.TIME_NEEDS_FULL_READ` when the value is stored in binary
+    and ``decode`` is False. Binary values are decoded by VTK's own multiblock reader, given the file without
+    its blocks (so that no block is read). Parallel files (``.pvtu``) store no time of their own here."""
+    from ._formats import TIME_ARRAY_NAMES, TIME_NEEDS_FULL_READ
 
+    try:
+        root = ET.parse(path).getroot()
+    except (ET.ParseError, OSError):
+        return {}
+    if root.get("type") not in ("vtkMultiBlockDataSet", "vtkMultiPieceDataSet"):
+        return {}
+    arrays = {a.get("Name"): a for field in root.findall("FieldData") for a in field.findall("DataArray")}
+    name = next((n for n in TIME_ARRAY_NAMES if n in arrays), None)
+    if name is None:
+        return {}
+    array = arrays[name]
+    if array.get("format") == "ascii":
+        dtype = np.float32 if array.get("type") == "Float32" else np.float64
+        try:
+            return {name: np.array((array.text or "").split()[:1], dtype=dtype)}
+        except ValueError:  # not a number: said by the time's own check
+            return {name: np.array([(array.text or "").strip()], dtype=object)}
+    if not decode:
+        return TIME_NEEDS_FULL_READ
+    return _decoded_field_data(root, name)
+
+
+def _decoded_field_data(root, name: str) -> dict:
+    """The field-data array ``name`` of a multiblock file's own ``<FieldData>``, decoded by VTK's multiblock
+    reader from a copy of the file without its blocks; {} when VTK cannot read it."""
+    import tempfile
+
+    from vtkmodules.util.numpy_support import vtk_to_numpy
+    from vtkmodules.vtkIOXML import vtkXMLMultiBlockDataReader
+
+    for node in root:
+        if node.tag != "FieldData":
+            for block in list(node):
+                node.remove(block)
+    with tempfile.TemporaryDirectory() as folder:
+        copy = os.path.join(folder, "time.vtm")
+        ET.ElementTree(root).write(copy)
+        reader = vtkXMLMultiBlockDataReader()
+        reader.SetFileName(copy)
+        reader.Update()
+    output = reader.GetOutput()
+    array = output.GetFieldData().GetAbstractArray(name) if output is not None else None
+    return {name: np.asarray(vtk_to_numpy(array)).ravel()} if array is not None else {}
+
+
+def _with_own_time(mesh, path: str, block: str):
+    """``mesh`` (the step's volume blocks read) with the time the multiblock file stores itself, when it
+    stores one, in place of the blocks'; a :class:`MeshWarning` when the two differ."""
+    from ._formats import TIME_ARRAY_NAMES, time_from_field_data
+
+    own = own_time(path)
+    if not own:
+        return mesh
+    field_data = dict(mesh.field_data or {})
+    time = time_from_field_data(own, path)
+    theirs = time_from_field_data(field_data, path)
+    if theirs is not None and abs(theirs - time) > max(time.resolution, theirs.resolution):
+        import warnings
+
+        from ..errors import MeshWarning
+
+        warnings.warn(MeshWarning(f"the multiblock file stores time {time:.10g} and its block "
+                                  f"{block or 'first'} stores {theirs:.10g}: the multiblock file's time is used; "
+                                  "write one time, or give a 'time,path' listing whose times are used instead",
+                                  where=path), stacklevel=3)
+    for name in TIME_ARRAY_NAMES:
+        field_data.pop(name, None)
+    field_data.update(own)
+    mesh.field_data = field_data
+    return mesh
+
+
+def peek_multiblock_time(path: str):
+    """The time the multiblock file stores itself, else the one stored in its first volume block
+    (see :func:`phasegauge.io._formats.peek_time` and :func:`own_time`)."""
+    from ._formats import peek_time, time_from_field_data
+
+    own = own_time(path, decode=False)
+    if own:
+        return own if not isinstance(own, dict) else time_from_field_data(own, path)
     try:
         blocks = multiblock_blocks(path)
     except UnreadableFileError:
