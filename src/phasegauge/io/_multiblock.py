@@ -142,8 +142,10 @@ def read_multiblock(path: str):
     blocks = multiblock_blocks(path)
     pieces = [read_mesh_file(_volume_file(path, file)) for _, file in blocks.volume]
     pieces = _without_patches(pieces, blocks.volume, path)
+    named = [block for block, piece in zip(blocks.volume, pieces) if piece is not None]
+    pieces = [piece for piece in pieces if piece is not None]
     if len(pieces) == 1:
-        return _with_own_time(pieces[0], path, blocks.volume[0][0])
+        return _with_own_time(pieces[0], path, named[0][0])
     pieces = [_owned_cells(piece) for piece in pieces]
     points, cells, offset = [], [], 0
     single = any(np.asarray(p.points).dtype == np.float32 for p in pieces)
@@ -159,7 +161,8 @@ def read_multiblock(path: str):
                  for name in pieces[0].cell_data if _shared(pieces, "cell_data", name)}
     joined = new_mesh(points, cells, point_data=point_data, cell_data=cell_data,
                       field_data=dict(pieces[0].field_data or {}))
-    joined = _with_own_time(joined, path, blocks.volume[0][0])
+    joined.fields_left_out = fields_left_out(pieces, named, path, point_data, cell_data)
+    joined = _with_own_time(joined, path, named[0][0])
     joined.block_sizes = block_sizes  # points merged across blocks are the join, not duplicates
     joined.single_precision_points = single
     if any(getattr(p, "cell_pieces", None) for p in pieces):  # cells a reader split stay marked per block
@@ -176,7 +179,7 @@ def _top_dimension(piece) -> int:
 
 
 def _without_patches(pieces: list, named: tuple, path: str) -> list:
-    """The blocks without those whose cells are all of a lower dimension than another block's: boundary
+    """The blocks, None for those whose cells are all of a lower dimension than another block's: boundary
     patches written as unstructured grids of faces (as ``.vtp`` patches, left out). Joined, their points
     would merge with the wall points and average the patch's values (a boundary condition's) into the
     volume's. Named in one :class:`MeshWarning`."""
@@ -193,7 +196,7 @@ def _without_patches(pieces: list, named: tuple, path: str) -> list:
     warnings.warn(MeshWarning(f"block{'s' if plural else ''} {', '.join(names)} hold{'' if plural else 's'} "
                               f"only cells of lower dimension than the volume's (boundary patches): left out, the "
                               "volume blocks are read", where=path), stacklevel=3)
-    return [p for p, d in zip(pieces, dims) if d == top]
+    return [p if d == top else None for p, d in zip(pieces, dims)]
 
 
 def _owned_cells(piece):
@@ -272,6 +275,52 @@ def seams_made_equal(points: list, *, single_precision: bool = False) -> np.ndar
     np.minimum.at(first, group, np.arange(found.size))  # each group's first point (the earliest block's)
     joined[found] = joined[found[first[group]]]
     return joined
+
+
+def fields_left_out(pieces: list, named: list, path: str, point_data: dict, cell_data: dict) -> dict:
+    """The fields some blocks hold and the joined mesh does not (not held by every block, or with other
+    components), each with why and the fix: ``{name: (why, fix)}``, which the message of a field not
+    found gives. A field whose copy on cells (or points) is left out while its other copy is kept is
+    named in a :class:`MeshWarning`: the run would read the other copy without a word."""
+    names = [(name or os.path.splitext(os.path.basename(file))[0]) for name, file in named]
+    on = {"cells": [set(p.cell_data) for p in pieces], "points": [set(p.point_data) for p in pieces]}
+    joined = {"cells": cell_data, "points": point_data}
+
+    def held(block: int) -> str:
+        where = {f: " and ".join(w for w in ("cells", "points") if f in on[w][block])
+                 for f in on["cells"][block] | on["points"][block]}
+        return f"{names[block]}: " + (", ".join(f"{f} on {w}" for f, w in sorted(where.items())) or "no fields")
+
+    shown = "; ".join(held(k) for k in range(len(pieces)))
+    out = {}
+    for field in sorted(set().union(*on["cells"], *on["points"])):
+        lost = [w for w in ("cells", "points") if any(field in h for h in on[w]) and field not in joined[w]]
+        if not lost:
+            continue
+        where = lost[0]
+        having = [k for k, h in enumerate(on[where]) if field in h]
+        if len(having) == len(pieces):
+            why = f"the blocks hold it on {where} with different components ({shown})"
+            fix = "write it with the same components in every block"
+        else:
+            lacking = [names[k] for k in range(len(pieces)) if k not in having]
+            why = (f"block{'s' if len(lacking) > 1 else ''} {', '.join(lacking)} of the multiblock file "
+                   f"hold{'' if len(lacking) > 1 else 's'} no '{field}' on {where} ({shown})")
+            fix = (f"measure the block{'s' if len(having) > 1 else ''} holding it alone: give "
+                   f"{'their' if len(having) > 1 else 'its'} files as a quoted glob (such as "
+                   f"'{os.path.relpath(named[having[0]][1])}' with a * for the step) or a 'time,path' listing")
+        kept = "points" if where == "cells" else "cells"
+        if field in joined[kept]:
+            import warnings
+
+            from ..errors import MeshWarning
+
+            warnings.warn(MeshWarning(f"field '{field}': its copy on {where} is left out, as {why}; the copy on "
+                                      f"{kept} is read; write it on {where} in every block, or give --field-location "
+                                      f"{kept[:-1]} to choose that copy", where=path), stacklevel=4)
+            continue
+        out[field] = (why, fix)
+    return out
 
 
 def _shared(pieces, kind: str, name: str) -> bool:
