@@ -182,21 +182,28 @@ def _without_patches(pieces: list, named: tuple, path: str) -> list:
     """The blocks, None for those whose cells are all of a lower dimension than another block's: boundary
     patches written as unstructured grids of faces (as ``.vtp`` patches, left out). Joined, their points
     would merge with the wall points and average the patch's values (a boundary condition's) into the
-    volume's. Named in one :class:`MeshWarning`."""
+    volume's. Named in one :class:`~phasegauge.errors.BlocksLeftOutNote` (a run's info line, not a finding)."""
     dims = [_top_dimension(p) for p in pieces]
     top = max(dims)
     if all(d == top for d in dims):
         return pieces
     import warnings
 
-    from ..errors import MeshWarning
+    from ..errors import BlocksLeftOutNote
 
     names = [name or os.path.splitext(os.path.basename(file))[0] for (name, file), d in zip(named, dims) if d < top]
-    plural = len(names) != 1
-    warnings.warn(MeshWarning(f"block{'s' if plural else ''} {', '.join(names)} hold{'' if plural else 's'} "
-                              f"only cells of lower dimension than the volume's (boundary patches): left out, the "
-                              "volume blocks are read", where=path), stacklevel=3)
+    warnings.warn(BlocksLeftOutNote(f"{LEFT_OUT_WORDS}{', '.join(names)} {PATCH_WORDS}", where=path), stacklevel=3)
     return [p if d == top else None for p, d in zip(pieces, dims)]
+
+
+#: how the blocks left out as boundary patches are said: the words before their names, and after
+LEFT_OUT_WORDS = "multiblock blocks left out: "
+PATCH_WORDS = "(boundary patches written as cells of lower dimension than the volume's; the volume blocks are read)"
+
+
+def left_out_names(what: str) -> list:
+    """The block names in the text of a :class:`~phasegauge.errors.BlocksLeftOutNote`."""
+    return what[len(LEFT_OUT_WORDS):].replace(PATCH_WORDS, "").strip().split(", ")
 
 
 def _owned_cells(piece):

@@ -7,8 +7,8 @@ import warnings
 
 import numpy as np
 
-from ..errors import (FieldNotFoundError, InputError, InputFileNotFound, MeshWarning, PhasegaugeWarning,
-                      SeriesWarning, SkippedStepWarning, collapse_warnings)
+from ..errors import (BlocksLeftOutNote, FieldNotFoundError, InputError, InputFileNotFound, MeshWarning,
+                      PhasegaugeWarning, SeriesWarning, SkippedStepWarning, collapse_warnings)
 from ..model.axes import AXIS_NAMES
 from . import Series
 
@@ -62,6 +62,12 @@ def describe_series(path, *, scan: str = "auto", sort_by_time: bool = False) -> 
             series.close()
     records = [(w.category, getattr(w.message, "what", str(w.message)), getattr(w.message, "where", ""))
                for w in caught if issubclass(w.category, PhasegaugeWarning)]
+    from ._multiblock import left_out_names
+
+    patches = [name for category, what, _ in records if issubclass(category, BlocksLeftOutNote)
+               for name in left_out_names(what)]  # blocks of faces in a volume format: left out as .vtp ones
+    records = [rec for rec in records if not issubclass(rec[0], BlocksLeftOutNote)]
+    desc["left_out_blocks"] = list(dict.fromkeys(desc["left_out_blocks"] + patches))
     records += [(SkippedStepWarning, f"{err.what}; {err.fix}", err.where)
                 for err in desc.pop("_errors")]
     summary = collapse_warnings(records)

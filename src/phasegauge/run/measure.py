@@ -405,7 +405,8 @@ def _write_contour_listing(contour_dir: str, results) -> None:
 
 
 def _reading(series, results) -> list:
-    """Info lines on what the run read: a field's copy when it has two, multiblock blocks left out."""
+    """Info lines on what the run read: a field's copy when it has two, multiblock blocks left out (polygon
+    data, and volume-format blocks of faces: :class:`~phasegauge.errors.BlocksLeftOutNote`)."""
     from ._report_data import series_record
 
     lines = []
@@ -415,6 +416,11 @@ def _reading(series, results) -> list:
     left_out = series_record(series).get("blocks_left_out")
     if left_out:
         lines.append(f"multiblock blocks left out: {left_out}")
+    from ..errors import BlocksLeftOutNote
+
+    # blocks of faces written in a volume format, left out when read: said alike, once
+    lines += dict.fromkeys(what for r in results for category, what, _ in (getattr(r, "warning_records", None) or [])
+                           if issubclass(category, BlocksLeftOutNote))
     return lines
 
 
