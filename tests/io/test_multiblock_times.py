@@ -52,12 +52,13 @@ def test_the_time_stored_in_the_vtm_itself_is_the_steps(tmp_path):
     assert alone.read(0).time == 0.05
 
 
-def test_a_binary_time_is_read_whole_and_an_ascii_time_peeked(tmp_path):
+def test_a_binary_time_and_an_ascii_time_are_peeked(tmp_path):
     from phasegauge.io._multiblock import own_time, peek_multiblock_time
 
     binary = _step(tmp_path / "binary.vtm", 0.05)
-    assert repr(peek_multiblock_time(binary)) == "TIME_NEEDS_FULL_READ"
+    assert repr(own_time(binary, decode=False)) == "TIME_NEEDS_FULL_READ"
     assert float(own_time(binary)["TimeValue"][0]) == _vtk_time(binary)
+    assert peek_multiblock_time(binary) == _vtk_time(binary)  # decoded when peeked: no block is read for it
     text = binary.read_text()
     start, end = text.index("<DataArray"), text.index("</DataArray>") + len("</DataArray>")
     ascii_path = tmp_path / "ascii.vtm"

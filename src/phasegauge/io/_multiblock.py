@@ -423,13 +423,14 @@ def _with_own_time(mesh, path: str, block: str):
 
 
 def peek_multiblock_time(path: str):
-    """The time the multiblock file stores itself, else the one stored in its first volume block
-    (see :func:`phasegauge.io._formats.peek_time` and :func:`own_time`)."""
+    """The time the multiblock file stores itself (binary decoded here: the step's blocks are not read for
+    it), else the one stored in its first volume block (see :func:`phasegauge.io._formats.peek_time` and
+    :func:`own_time`)."""
     from ._formats import peek_time, time_from_field_data
 
-    own = own_time(path, decode=False)
+    own = own_time(path)  # decoded when binary: a few bytes, no block read
     if own:
-        return own if not isinstance(own, dict) else time_from_field_data(own, path)
+        return time_from_field_data(own, path)
     try:
         blocks = multiblock_blocks(path)
     except UnreadableFileError:
