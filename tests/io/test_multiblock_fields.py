@@ -61,6 +61,11 @@ def test_a_field_one_region_lacks_is_refused_naming_the_blocks_and_the_way_out(t
     assert "quoted glob" in error.fix and "cht_0.vtu" in error.fix  # the fluid block's file
     with pytest.raises(FieldNotFoundError, match=r"not read, held by some blocks only: T, alpha"):
         select_field(step.fields, "phi", where=step.info.where)
+    from phasegauge.io.describe import describe_series, format_description
+
+    described = describe_series(str(path))  # inspect names them too
+    assert set(described["fields_left_out"]) == {"T", "alpha"}
+    assert "alpha            not read: block solid" in format_description(described)
 
 
 def test_a_cell_copy_one_block_lacks_is_not_swapped_for_the_point_copy_silently(tmp_path):

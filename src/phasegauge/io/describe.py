@@ -41,8 +41,9 @@ def describe_series(path, *, scan: str = "auto", sort_by_time: bool = False) -> 
         were read, else None), bounds, cell_size, mesh_changes,
         scanned_steps, fields`` (each field: ``name, location, components, min, max,
         nonfinite``), ``field_copies`` (the fields written on cells and on points
-        under one name, with the copy measure reads), ``left_out_blocks`` (blocks
-        of multiblock files not read: boundary patches), ``unreadable_steps``
+        under one name, with the copy measure reads), ``fields_left_out`` (fields a
+        multiblock file's blocks do not all hold, not read: name to why),
+        ``left_out_blocks`` (blocks of multiblock files not read: boundary patches), ``unreadable_steps``
         (one line each) and ``warnings``
         (one line each, repeats over steps collapsed; also issued as warnings).
         A time that could not be read is None.
@@ -173,6 +174,7 @@ def _describe(series, scan: str) -> dict:
         "scanned_steps": scanned,
         "fields": [stats[k] for k in sorted(stats)],
         "field_copies": _field_copies(stats),
+        "fields_left_out": {name: why for name, (why, _) in sorted(first.fields.left_out.items())},
         "left_out_blocks": _left_out_blocks(first.info.path),
         "unreadable_steps": [err.one_line() for err in errors],
         "_errors": errors,
@@ -283,6 +285,8 @@ def format_description(desc: dict) -> str:
                      f"{'s' if f['components'] != 1 else ''}, {rng}{bad}")
     for name, text in desc.get("field_copies", {}).items():
         lines.append(f"  note      {text} (for the measured field --field-location point reads the point copy)")
+    for name, why in desc.get("fields_left_out", {}).items():
+        lines.append(f"  {name:<16} not read: {why}")
     if desc.get("left_out_blocks"):
         lines.append("left out    blocks " + ", ".join(desc["left_out_blocks"])
                      + " of the multiblock files (boundary patches and other polygon data; the volume blocks are read)")
