@@ -6,6 +6,7 @@ them, so three steps is the count; the block kept out is the one VTK's reader fi
 (quadrilaterals, ``pyvista.CellType.QUAD``).
 """
 
+import json
 import warnings
 
 import numpy as np
@@ -68,9 +69,11 @@ def test_a_patch_left_out_is_an_info_line_whatever_its_format(tmp_path, suffix):
     folder = _steps(tmp_path / "run", suffix)
     with warnings.catch_warnings():
         warnings.simplefilter("ignore")
-        result = pg.measure(folder, "alpha")
+        result = pg.measure(folder, "alpha", out=tmp_path / "o")
     assert result.steps["time"].tolist() == [0.0, 0.1, 0.2]
     assert not [f for f in result.flags if "outlet" in f]
     assert not [w for w in result.warnings if "outlet" in w]
     (line,) = [r for r in result.reading if "outlet" in r]
-    assert line.startswith("multiblock blocks left out: outlet (boundary patches")
+    assert line == "multiblock blocks left out: outlet (boundary patches: the volume blocks are read)"
+    manifest = json.loads((tmp_path / "o" / "manifest.json").read_text())
+    assert manifest["series"]["blocks_left_out"] == "outlet (boundary patches: the volume blocks are read)"
