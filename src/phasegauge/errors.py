@@ -34,8 +34,10 @@ __all__ = [
     "ResolutionWarning",
     "SeriesWarning",
     "MeshWarning",
+    "BlocksLeftOutNote",
     "OldNameWarning",
     "collapse_warnings",
+    "count_steps",
     "short_text",
     "cut_middle",
 ]
@@ -193,6 +195,12 @@ class MeshWarning(PhasegaugeWarning):
     """The mesh has inverted or zero-size cells, or duplicate points that were merged."""
 
 
+class BlocksLeftOutNote(MeshWarning):
+    """Blocks of a multiblock file left out as boundary patches (volume-format files of faces only): said
+    where the polygon-data patches left out are said (an info line of a run, ``inspect``'s left-out blocks),
+    not as a finding."""
+
+
 class OldNameWarning(PhasegaugeWarning, FutureWarning):
     """An option, recipe key or flag was given under its old name (still accepted, to be removed).
 
@@ -216,6 +224,12 @@ def collapse_warnings(records) -> list:
         One entry per kind of warning (same class and same text once its
         numbers are masked), in order of first appearance: the first
         occurrence's text, with the number of further steps it appeared in.
+
+    Notes
+    -----
+    Steps are counted, not places: a step's file read when the series is
+    found (``run/case_0.vtm``) and again when it is measured
+    (``case_0.vtm, step 0``) is one step (:func:`count_steps`).
     """
     import re
 
@@ -224,19 +238,52 @@ def collapse_warnings(records) -> list:
         key = (category, re.sub(r"[-+]?(\d+\.?\d*|\.\d+)([eE][-+]?\d+)?", "#", what))
         entry = groups.get(key)
         if entry is None:
-            groups[key] = [category, what, where, set()]
+            groups[key] = [category, what, where, [where]]
         else:
-            entry[3].add(where)
+            entry[3].append(where)
     out = []
-    for category, what, where, more in groups.values():
-        more.discard(where)
+    for category, what, where, places in groups.values():
+        more = count_steps(places) - 1
         text = cut_middle(what, WHAT_LIMIT)
         if where:
             text = f"{cut_middle(where, WHERE_LIMIT)}: {text}"
-        if more:
-            text += f" (and {len(more)} more step{'s' if len(more) > 1 else ''})"
+        if more > 0:
+            text += f" (and {more} more step{'s' if more > 1 else ''})"
         out.append((category, text))
     return out
+
+
+def count_steps(places) -> int:
+    """How many steps the places ``places`` of one warning name (at least 1).
+
+    A place is a file (``run/case_0.vtm``) or a file and step (``case_0.vtm, step 0``). Two files are
+    one when one path ends with the other (a message may name a step's file from the series' folder);
+    a file without a step is one of the steps of that file when some place names it with a step, and
+    a step of its own otherwise.
+    """
+    import os
+    import re
+
+    def file_of(text: str) -> str:
+        return os.path.normpath(text.replace("\\", "/")).replace("\\", "/") if text else ""
+
+    def same(a: str, b: str) -> bool:
+        return a == b or a.endswith("/" + b) or b.endswith("/" + a)
+
+    stepped, plain = [], []  # (file, step) and files
+    for place in dict.fromkeys(places):
+        match = re.match(r"(.*?), step (\d+)", place)
+        if match:
+            unit = (file_of(match.group(1)), int(match.group(2)))
+            if not any(s == unit[1] and same(f, unit[0]) for f, s in stepped):
+                stepped.append(unit)
+        else:
+            plain.append(file_of(place))
+    alone = []
+    for f in plain:
+        if not any(same(f, g) for g, _ in stepped) and not any(same(f, g) for g in alone):
+            alone.append(f)
+    return max(1, len(stepped) + len(alone))
 
 
 #: the longest ``where``, ``what`` and ``fix`` a message line shows (characters)

@@ -13,7 +13,8 @@ import numpy as np
 import pytest
 import pyvista
 
-from phasegauge.errors import InputFileNotFound, MeshWarning, SeriesError, SeriesWarning, UnreadableFileError
+from phasegauge.errors import (BlocksLeftOutNote, InputFileNotFound, SeriesError, SeriesWarning,
+                               UnreadableFileError)
 from phasegauge.io import MESH_SUFFIXES, Series, natural_key
 from phasegauge.io.describe import describe_series, format_description
 from phasegauge.samples._vof_tank import TANK, write_vof_tank
@@ -211,7 +212,7 @@ def test_a_patch_written_as_an_unstructured_grid_is_left_out(tank, tmp_path):
     text = text.replace('file="tank_132/boundary/walls.vtp"', f'file="{tmp_path}/walls.vtu"')
     assert "walls.vtu" in text
     (tmp_path / "patched.vtm").write_text(text)
-    with pytest.warns(MeshWarning, match="block walls holds only cells of lower dimension"):
+    with pytest.warns(BlocksLeftOutNote, match="multiblock blocks left out: walls .boundary patches written as cells"):
         step = Series(tmp_path / "patched.vtm").read(0)
     volume = pyvista.read(tank / "tank_132" / "internal.vtu")
     assert step.mesh.n_points == volume.n_points and step.mesh.n_cells == volume.n_cells

@@ -130,3 +130,53 @@ def test_column_with_cell_velocity_and_point_data_matches_the_2d_run(tmp_path):
     pd.testing.assert_frame_equal(a.steps.drop(columns=["depth"]), b.steps, check_exact=True)
     pd.testing.assert_frame_equal(a.droplets, b.droplets, check_exact=True)
     assert not a.steps["open_boundary"].any()  # the front and back planes are gone, the walls closed
+
+
+def _turned(mesh, degrees):
+    """``mesh`` turned about x by ``degrees`` (the rotation matrix of numpy's cos and sin)."""
+    from phasegauge.model.mesh import Mesh
+
+    t = np.radians(degrees)
+    turn = np.array([[1, 0, 0], [0, np.cos(t), -np.sin(t)], [0, np.sin(t), np.cos(t)]])
+    return Mesh(mesh.points @ turn.T, [(b.cell_type, b.connectivity) for b in mesh.blocks]), turn
+
+
+@pytest.mark.parametrize("kind", ["hexahedron", "wedge"])
+def test_a_slab_between_turned_planes_is_measured_as_3d_with_a_warning(kind):
+    import warnings
+
+    from phasegauge.errors import MeshWarning
+    from phasegauge.model.quasi2d import as_measured, tilted_slab
+
+    slab, turn = _turned(grid_mesh((10, 10, 1), [(0, 1), (0, 1), (0, 0.05)], kind=kind), 30)
+    assert one_cell_thick(slab) is None  # axis planes only
+    normal, depth = tilted_slab(slab)
+    # analytic: the planes' normal is the turned z axis, (0, -sin 30, cos 30); the depth is the extrusion's
+    np.testing.assert_allclose(normal, turn @ [0, 0, 1], atol=1e-12)
+    assert depth == pytest.approx(0.05, rel=1e-9)
+    with pytest.warns(MeshWarning, match=r"one cell thick \(depth 0\.05\) but its two planes are not normal to x, y "
+                                         r"or z \(normal 0, -0\.5, 0\.866\): it is measured as 3D.*normal to an axis"):
+        assert as_measured(slab) is None
+    with warnings.catch_warnings():
+        warnings.simplefilter("error")
+        assert as_measured(slab, keep_3d=True) is None  # measured as 3D by choice: no word
+        # the same slab on axis planes is quasi-2D, and a turned slab two cells thick is plain 3D: no word
+        assert as_measured(grid_mesh((10, 10, 1), [(0, 1), (0, 1), (0, 0.05)], kind=kind)) is not None
+        thick, _ = _turned(grid_mesh((10, 10, 2), [(0, 1), (0, 1), (0, 0.1)], kind=kind), 30)
+        assert tilted_slab(thick) is None and as_measured(thick) is None
+
+
+def test_measure_says_a_turned_slab_is_measured_as_3d(tmp_path):
+    import warnings
+
+    axis = grid_mesh((16, 16, 1), [(0, 1), (0, 1), (0, 0.05)])
+    turned, _ = _turned(axis, 30)
+    c = (np.hypot(axis.cell_centroids[:, 0] - 0.5, axis.cell_centroids[:, 1] - 0.5) < R).astype(float)
+    for name, mesh in (("turned", turned), ("axis", axis)):
+        to_meshio(mesh, cell_data={"c": c}).write(str(tmp_path / f"{name}.vtu"))
+    with warnings.catch_warnings():
+        warnings.simplefilter("ignore")
+        turned_run, axis_run = measure(str(tmp_path / "turned.vtu"), "c"), measure(str(tmp_path / "axis.vtu"), "c")
+    assert [w for w in turned_run.warnings if "one cell thick" in w and "measured as 3D" in w]
+    assert not [w for w in axis_run.warnings if "one cell thick" in w]
+    assert "depth" in axis_run.steps and "depth" not in turned_run.steps

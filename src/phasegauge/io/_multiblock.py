@@ -9,7 +9,9 @@ are read with their own format's reader and joined into one mesh; polygon-data
 blocks (``.vtp``: boundary patches, surfaces) are left out and named by
 :func:`multiblock_blocks`; so are volume-format blocks whose cells are all of a lower dimension than
 another block's (patches written as unstructured grids of faces), named in a warning when read. The
-step's time is the one stored in the first volume block's field data.
+step's time is the one the multiblock file stores in its own ``<FieldData>`` (where VTK's multiblock writer
+puts it); when it stores none, the one stored in the first volume block's field data. Where both store a
+time and they differ, the multiblock file's is used and a warning names both.
 """
 
 from __future__ import annotations
@@ -129,8 +131,9 @@ def read_multiblock(path: str):
     """Read the volume blocks of a multiblock file as one meshio-style mesh.
 
     Several volume blocks are joined (points numbered on); a field is kept when
-    every block holds it with the same components. The field data (the stored
-    time) is the first block's. Cells a block's reader split (convex point sets)
+    every block holds it with the same components. The field data is the first
+    block's, its time replaced by the one the multiblock file itself stores
+    (:func:`own_time`). Cells a block's reader split (convex point sets)
     stay marked as pieces of their cell (``cell_pieces``).
     """
     from ._formats import read_mesh_file
@@ -139,8 +142,10 @@ def read_multiblock(path: str):
     blocks = multiblock_blocks(path)
     pieces = [read_mesh_file(_volume_file(path, file)) for _, file in blocks.volume]
     pieces = _without_patches(pieces, blocks.volume, path)
+    named = [block for block, piece in zip(blocks.volume, pieces) if piece is not None]
+    pieces = [piece for piece in pieces if piece is not None]
     if len(pieces) == 1:
-        return pieces[0]
+        return _with_own_time(pieces[0], path, named[0][0])
     pieces = [_owned_cells(piece) for piece in pieces]
     points, cells, offset = [], [], 0
     single = any(np.asarray(p.points).dtype == np.float32 for p in pieces)
@@ -156,6 +161,8 @@ def read_multiblock(path: str):
                  for name in pieces[0].cell_data if _shared(pieces, "cell_data", name)}
     joined = new_mesh(points, cells, point_data=point_data, cell_data=cell_data,
                       field_data=dict(pieces[0].field_data or {}))
+    joined.fields_left_out = fields_left_out(pieces, named, path, point_data, cell_data)
+    joined = _with_own_time(joined, path, named[0][0])
     joined.block_sizes = block_sizes  # points merged across blocks are the join, not duplicates
     joined.single_precision_points = single
     if any(getattr(p, "cell_pieces", None) for p in pieces):  # cells a reader split stay marked per block
@@ -172,24 +179,31 @@ def _top_dimension(piece) -> int:
 
 
 def _without_patches(pieces: list, named: tuple, path: str) -> list:
-    """The blocks without those whose cells are all of a lower dimension than another block's: boundary
+    """The blocks, None for those whose cells are all of a lower dimension than another block's: boundary
     patches written as unstructured grids of faces (as ``.vtp`` patches, left out). Joined, their points
     would merge with the wall points and average the patch's values (a boundary condition's) into the
-    volume's. Named in one :class:`MeshWarning`."""
+    volume's. Named in one :class:`~phasegauge.errors.BlocksLeftOutNote` (a run's info line, not a finding)."""
     dims = [_top_dimension(p) for p in pieces]
     top = max(dims)
     if all(d == top for d in dims):
         return pieces
     import warnings
 
-    from ..errors import MeshWarning
+    from ..errors import BlocksLeftOutNote
 
     names = [name or os.path.splitext(os.path.basename(file))[0] for (name, file), d in zip(named, dims) if d < top]
-    plural = len(names) != 1
-    warnings.warn(MeshWarning(f"block{'s' if plural else ''} {', '.join(names)} hold{'' if plural else 's'} "
-                              f"only cells of lower dimension than the volume's (boundary patches): left out, the "
-                              "volume blocks are read", where=path), stacklevel=3)
-    return [p for p, d in zip(pieces, dims) if d == top]
+    warnings.warn(BlocksLeftOutNote(f"{LEFT_OUT_WORDS}{', '.join(names)} {PATCH_WORDS}", where=path), stacklevel=3)
+    return [p if d == top else None for p, d in zip(pieces, dims)]
+
+
+#: how the blocks left out as boundary patches are said: the words before their names, and after
+LEFT_OUT_WORDS = "multiblock blocks left out: "
+PATCH_WORDS = "(boundary patches written as cells of lower dimension than the volume's; the volume blocks are read)"
+
+
+def left_out_names(what: str) -> list:
+    """The block names in the text of a :class:`~phasegauge.errors.BlocksLeftOutNote`."""
+    return what[len(LEFT_OUT_WORDS):].replace(PATCH_WORDS, "").strip().split(", ")
 
 
 def _owned_cells(piece):
@@ -270,6 +284,52 @@ def seams_made_equal(points: list, *, single_precision: bool = False) -> np.ndar
     return joined
 
 
+def fields_left_out(pieces: list, named: list, path: str, point_data: dict, cell_data: dict) -> dict:
+    """The fields some blocks hold and the joined mesh does not (not held by every block, or with other
+    components), each with why and the fix: ``{name: (why, fix)}``, which the message of a field not
+    found gives. A field whose copy on cells (or points) is left out while its other copy is kept is
+    named in a :class:`MeshWarning`: the run would read the other copy without a word."""
+    names = [(name or os.path.splitext(os.path.basename(file))[0]) for name, file in named]
+    on = {"cells": [set(p.cell_data) for p in pieces], "points": [set(p.point_data) for p in pieces]}
+    joined = {"cells": cell_data, "points": point_data}
+
+    def held(block: int) -> str:
+        where = {f: " and ".join(w for w in ("cells", "points") if f in on[w][block])
+                 for f in on["cells"][block] | on["points"][block]}
+        return f"{names[block]}: " + (", ".join(f"{f} on {w}" for f, w in sorted(where.items())) or "no fields")
+
+    shown = "; ".join(held(k) for k in range(len(pieces)))
+    out = {}
+    for field in sorted(set().union(*on["cells"], *on["points"])):
+        lost = [w for w in ("cells", "points") if any(field in h for h in on[w]) and field not in joined[w]]
+        if not lost:
+            continue
+        where = lost[0]
+        having = [k for k, h in enumerate(on[where]) if field in h]
+        if len(having) == len(pieces):
+            why = f"the blocks hold it on {where} with different components ({shown})"
+            fix = "write it with the same components in every block"
+        else:
+            lacking = [names[k] for k in range(len(pieces)) if k not in having]
+            why = (f"block{'s' if len(lacking) > 1 else ''} {', '.join(lacking)} of the multiblock file "
+                   f"hold{'' if len(lacking) > 1 else 's'} no '{field}' on {where} ({shown})")
+            fix = (f"measure the block{'s' if len(having) > 1 else ''} holding it alone: give "
+                   f"{'their' if len(having) > 1 else 'its'} files as a quoted glob (such as "
+                   f"'{os.path.relpath(named[having[0]][1])}' with a * for the step) or a 'time,path' listing")
+        kept = "points" if where == "cells" else "cells"
+        if field in joined[kept]:
+            import warnings
+
+            from ..errors import MeshWarning
+
+            warnings.warn(MeshWarning(f"field '{field}': its copy on {where} is left out, as {why}; the copy on "
+                                      f"{kept} is read; write it on {where} in every block, or give --field-location "
+                                      f"{kept[:-1]} to choose that copy", where=path), stacklevel=4)
+            continue
+        out[field] = (why, fix)
+    return out
+
+
 def _shared(pieces, kind: str, name: str) -> bool:
     """True when every piece holds the field with one shape of component."""
     shapes = set()
@@ -282,10 +342,95 @@ def _shared(pieces, kind: str, name: str) -> bool:
     return len(shapes) == 1
 
 
-def peek_multiblock_time(path: str):
-    """The time stored in the first volume block (see :func:`phasegauge.io._formats.peek_time`)."""
-    from ._formats import peek_time
+def own_time(path: str, *, decode: bool = True):
+    """The time a multiblock file stores in its own ``<FieldData>`` (VTK's multiblock writer puts the
+    step's ``TimeValue`` there, not in the blocks), as a one-value field-data dict ``{name: array}``; {} when
+    it stores none, and :data:`~phasegauge.io._formats.TIME_NEEDS_FULL_READ` when the value is stored in binary
+    and ``decode`` is False. Binary values are decoded by VTK's own multiblock reader, given the file without
+    its blocks (so that no block is read). Parallel files (``.pvtu``) store no time of their own here."""
+    from ._formats import TIME_ARRAY_NAMES, TIME_NEEDS_FULL_READ
 
+    try:
+        root = ET.parse(path).getroot()
+    except (ET.ParseError, OSError):
+        return {}
+    if root.get("type") not in ("vtkMultiBlockDataSet", "vtkMultiPieceDataSet"):
+        return {}
+    arrays = {a.get("Name"): a for field in root.findall("FieldData") for a in field.findall("DataArray")}
+    name = next((n for n in TIME_ARRAY_NAMES if n in arrays), None)
+    if name is None:
+        return {}
+    array = arrays[name]
+    if array.get("format") == "ascii":
+        dtype = np.float32 if array.get("type") == "Float32" else np.float64
+        try:
+            return {name: np.array((array.text or "").split()[:1], dtype=dtype)}
+        except ValueError:  # not a number: said by the time's own check
+            return {name: np.array([(array.text or "").strip()], dtype=object)}
+    if not decode:
+        return TIME_NEEDS_FULL_READ
+    return _decoded_field_data(root, name)
+
+
+def _decoded_field_data(root, name: str) -> dict:
+    """The field-data array ``name`` of a multiblock file's own ``<FieldData>``, decoded by VTK's multiblock
+    reader from a copy of the file without its blocks; {} when VTK cannot read it."""
+    import tempfile
+
+    from vtkmodules.util.numpy_support import vtk_to_numpy
+    from vtkmodules.vtkIOXML import vtkXMLMultiBlockDataReader
+
+    for node in root:
+        if node.tag != "FieldData":
+            for block in list(node):
+                node.remove(block)
+    with tempfile.TemporaryDirectory() as folder:
+        copy = os.path.join(folder, "time.vtm")
+        ET.ElementTree(root).write(copy)
+        reader = vtkXMLMultiBlockDataReader()
+        reader.SetFileName(copy)
+        reader.Update()
+    output = reader.GetOutput()
+    array = output.GetFieldData().GetAbstractArray(name) if output is not None else None
+    return {name: np.asarray(vtk_to_numpy(array)).ravel()} if array is not None else {}
+
+
+def _with_own_time(mesh, path: str, block: str):
+    """``mesh`` (the step's volume blocks read) with the time the multiblock file stores itself, when it
+    stores one, in place of the blocks'; a :class:`MeshWarning` when the two differ."""
+    from ._formats import TIME_ARRAY_NAMES, time_from_field_data
+
+    own = own_time(path)
+    if not own:
+        return mesh
+    field_data = dict(mesh.field_data or {})
+    time = time_from_field_data(own, path)
+    theirs = time_from_field_data(field_data, path)
+    if theirs is not None and abs(theirs - time) > max(time.resolution, theirs.resolution):
+        import warnings
+
+        from ..errors import MeshWarning
+
+        warnings.warn(MeshWarning(f"the multiblock file stores time {time:.10g} and its block "
+                                  f"{block or 'first'} stores {theirs:.10g}: the multiblock file's time is used; "
+                                  "write one time, or give a 'time,path' listing whose times are used instead",
+                                  where=path), stacklevel=3)
+    for name in TIME_ARRAY_NAMES:
+        field_data.pop(name, None)
+    field_data.update(own)
+    mesh.field_data = field_data
+    return mesh
+
+
+def peek_multiblock_time(path: str):
+    """The time the multiblock file stores itself (binary decoded here: the step's blocks are not read for
+    it), else the one stored in its first volume block (see :func:`phasegauge.io._formats.peek_time` and
+    :func:`own_time`)."""
+    from ._formats import peek_time, time_from_field_data
+
+    own = own_time(path)  # decoded when binary: a few bytes, no block read
+    if own:
+        return time_from_field_data(own, path)
     try:
         blocks = multiblock_blocks(path)
     except UnreadableFileError:

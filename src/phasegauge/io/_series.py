@@ -45,7 +45,7 @@ from ._claims import CheckedFiles, check_hdf5_claims
 from ._series_gaps import (RESOLUTION_SHARE, coarse_time_share, repeated_times_fix, restart_problem, two_times,
                            warn_series_gaps, warn_time_resolution)
 from ._series_names import (check_one_family, digits_masked, first_three, natural_key, warn_decimal_doubt,
-                            with_folder_times)
+                            warn_other_indexes, with_folder_times)
 from ._xdmf import (collection_times, collections_among, grid_time, included_files, lone_collection,
                     temporal_grids, xdmf_data_files)
 
@@ -302,6 +302,7 @@ class Series:
             steps = self._from_files(files)
             if not warn_decimal_doubt(files, path, steps):
                 warn_series_gaps(files, path, steps)
+            warn_other_indexes(files, path, steps)
             return steps
         if any(ch in path for ch in "*?[") and not os.path.exists(path):
             files = without_indexed_files(sorted((f for f in globmod.glob(path) if _is_mesh_file(f)), key=natural_key))
@@ -318,6 +319,7 @@ class Series:
             steps = self._from_files(files)
             if not warn_decimal_doubt(files, path, steps):
                 warn_series_gaps(files, path, steps)
+            warn_other_indexes(files, path, steps)
             return steps
         check_readable(path)
         if path.lower().endswith(LISTING_SUFFIXES):

@@ -21,7 +21,7 @@ from ..errors import SeriesError, SeriesWarning
 from ._formats import stores_time
 
 __all__ = ["NAME_NUMBER", "INTERVAL_TOLERANCE", "name_number", "natural_key", "digits_masked", "check_one_family",
-           "warn_decimal_doubt", "with_folder_times", "first_three"]
+           "warn_decimal_doubt", "with_folder_times", "first_three", "warn_other_indexes", "OTHER_INDEX_SUFFIXES"]
 
 #: a number in a file or folder name, as names are ordered, masked and numbered: digits, with a
 #: decimal part and an exponent if they have them (solvers' time folders ``0.05`` and ``1e-05``)
@@ -74,6 +74,53 @@ def with_folder_times(files: list, steps: list, checked=None) -> list:
         return steps
     return [dataclasses.replace(s, time=float(name_number(n)), time_origin="folder_name")
             if s.time_origin == "index" else s for s, n in zip(steps, names)]
+
+
+#: index files other programs write beside a series' step files, naming them with their times: ParaView's XML
+#: collection (``.pvd``) and the JSON file series (``out.vtu.series``, as ParaView and OpenFOAM's foamToVTK write
+#: it). Not read (the times come from open formats: the files, their folders' names or our own listing)
+OTHER_INDEX_SUFFIXES = (".pvd", ".series")
+
+#: how much of such an index file is searched for the step files' names (bytes)
+_INDEX_HEAD = 1 << 22
+
+
+def warn_other_indexes(files: list, where: str, steps: list) -> list:
+    """Warn once, naming them, of index files another program wrote beside the step files
+    (:data:`OTHER_INDEX_SUFFIXES`, in the step files' folders or the folder above) that name some of
+    them, when a step stores no time: the times they list are not read, and the steps take their
+    numbers. Returns the index files named."""
+    if not any(s.time_origin == "index" for s in steps):
+        return []
+    folders = {os.path.dirname(os.path.abspath(f)) for f in files}
+    folders |= {os.path.dirname(f) for f in folders}
+    bases = {os.path.basename(f).encode() for f in files}
+    found = []
+    for folder in sorted(folders):
+        try:
+            names = sorted(os.listdir(folder), key=natural_key)
+        except OSError:
+            continue
+        for name in names:
+            index = os.path.join(folder, name)
+            if not name.lower().endswith(OTHER_INDEX_SUFFIXES) or not os.path.isfile(index):
+                continue
+            try:
+                with open(index, "rb") as handle:
+                    text = handle.read(_INDEX_HEAD)
+            except OSError:
+                continue
+            if any(base in text for base in bases):
+                found.append(index)
+    if found:
+        shown = ", ".join(os.path.basename(f) for f in found)
+        plural = len(found) > 1
+        warnings.warn(SeriesWarning(f"{shown} beside the step files list{'' if plural else 's'} their times in "
+                                    f"another program's index format{'s' if plural else ''}, not read: the steps "
+                                    "without a stored time take their step numbers as times; give the times "
+                                    "in a 'time,path' listing (a .steps file, one 'time,path' pair a line) or write "
+                                    "them into the files' field data (TimeValue)", where=where), stacklevel=3)
+    return found
 
 
 def warn_decimal_doubt(files: list, where: str, steps: list) -> bool:

@@ -7,8 +7,8 @@ import warnings
 
 import numpy as np
 
-from ..errors import (FieldNotFoundError, InputError, InputFileNotFound, MeshWarning, PhasegaugeWarning,
-                      SeriesWarning, SkippedStepWarning, collapse_warnings)
+from ..errors import (BlocksLeftOutNote, FieldNotFoundError, InputError, InputFileNotFound, MeshWarning,
+                      PhasegaugeWarning, SeriesWarning, SkippedStepWarning, collapse_warnings)
 from ..model.axes import AXIS_NAMES
 from . import Series
 
@@ -41,8 +41,9 @@ def describe_series(path, *, scan: str = "auto", sort_by_time: bool = False) -> 
         were read, else None), bounds, cell_size, mesh_changes,
         scanned_steps, fields`` (each field: ``name, location, components, min, max,
         nonfinite``), ``field_copies`` (the fields written on cells and on points
-        under one name, with the copy measure reads), ``left_out_blocks`` (blocks
-        of multiblock files not read: boundary patches), ``unreadable_steps``
+        under one name, with the copy measure reads), ``fields_left_out`` (fields a
+        multiblock file's blocks do not all hold, not read: name to why),
+        ``left_out_blocks`` (blocks of multiblock files not read: boundary patches), ``unreadable_steps``
         (one line each) and ``warnings``
         (one line each, repeats over steps collapsed; also issued as warnings).
         A time that could not be read is None.
@@ -62,6 +63,12 @@ def describe_series(path, *, scan: str = "auto", sort_by_time: bool = False) -> 
             series.close()
     records = [(w.category, getattr(w.message, "what", str(w.message)), getattr(w.message, "where", ""))
                for w in caught if issubclass(w.category, PhasegaugeWarning)]
+    from ._multiblock import left_out_names
+
+    patches = [name for category, what, _ in records if issubclass(category, BlocksLeftOutNote)
+               for name in left_out_names(what)]  # blocks of faces in a volume format: left out as .vtp ones
+    records = [rec for rec in records if not issubclass(rec[0], BlocksLeftOutNote)]
+    desc["left_out_blocks"] = list(dict.fromkeys(desc["left_out_blocks"] + patches))
     records += [(SkippedStepWarning, f"{err.what}; {err.fix}", err.where)
                 for err in desc.pop("_errors")]
     summary = collapse_warnings(records)
@@ -131,9 +138,12 @@ def _describe(series, scan: str) -> dict:
     if overlap is not None:
         warnings.warn(MeshWarning(f"{overlap}; measure refuses this mesh", where=first.info.where), stacklevel=3)
     sizes = mesh.cell_sizes
-    from ..model.quasi2d import one_cell_thick
+    from ..model.quasi2d import one_cell_thick, tilted_slab, tilted_slab_words
 
     flat = one_cell_thick(mesh)
+    tilted = tilted_slab(mesh) if flat is None and mesh.dimension == 3 else None
+    if tilted is not None:
+        warnings.warn(MeshWarning(tilted_slab_words(tilted), where=first.info.where), stacklevel=3)
     from ..model._wedge_sector import wedge_sector
 
     sector = wedge_sector(mesh)
@@ -164,6 +174,7 @@ def _describe(series, scan: str) -> dict:
         "scanned_steps": scanned,
         "fields": [stats[k] for k in sorted(stats)],
         "field_copies": _field_copies(stats),
+        "fields_left_out": {name: why for name, (why, _) in sorted(first.fields.left_out.items())},
         "left_out_blocks": _left_out_blocks(first.info.path),
         "unreadable_steps": [err.one_line() for err in errors],
         "_errors": errors,
@@ -274,6 +285,8 @@ def format_description(desc: dict) -> str:
                      f"{'s' if f['components'] != 1 else ''}, {rng}{bad}")
     for name, text in desc.get("field_copies", {}).items():
         lines.append(f"  note      {text} (for the measured field --field-location point reads the point copy)")
+    for name, why in desc.get("fields_left_out", {}).items():
+        lines.append(f"  {name:<16} not read: {why}")
     if desc.get("left_out_blocks"):
         lines.append("left out    blocks " + ", ".join(desc["left_out_blocks"])
                      + " of the multiblock files (boundary patches and other polygon data; the volume blocks are read)")

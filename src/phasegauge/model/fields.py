@@ -52,7 +52,12 @@ def named_field(fields, name: str, *, where: str = "", role: str = "field", fix:
         if name in data:
             return np.asarray(data[name]), location
     names = sorted(set(fields.point_data) | set(fields.cell_data))
-    raise FieldNotFoundError(f"{role} '{name}' not found; fields there: " + (", ".join(names) or "none"),
+    left_out = getattr(fields, "left_out", None) or {}
+    if name in left_out:  # a field the file holds in part (a multiblock file's field some blocks lack)
+        why, fix = left_out[name]
+        raise FieldNotFoundError(f"{role} '{name}' is not read: {why}", where=where, fix=fix)
+    others = f" (not read, held by some blocks only: {', '.join(sorted(left_out))})" if left_out else ""
+    raise FieldNotFoundError(f"{role} '{name}' not found; fields there: " + (", ".join(names) or "none") + others,
                              where=where, fix=fix)
 
 

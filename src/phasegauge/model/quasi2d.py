@@ -19,10 +19,16 @@ import numpy as np
 from .cells import FACES
 from .mesh import Mesh
 
-__all__ = ["Quasi2D", "one_cell_thick", "as_measured", "flat_mesh_if_built", "PLANE_TOLERANCE"]
+__all__ = ["Quasi2D", "one_cell_thick", "as_measured", "flat_mesh_if_built", "tilted_slab", "tilted_slab_words",
+           "PLANE_TOLERANCE", "TILTED_PLANE_TOLERANCE"]
 
 #: points lie on a plane when within this fraction of the mesh's largest extent of it
 PLANE_TOLERANCE = 1e-9
+
+#: points lie on one of two planes of any direction (:func:`tilted_slab`) when within this fraction of the
+#: mesh's largest extent of it (our threshold: loose against the rounding of turned coordinates, 1e-16, and
+#: far below a cell of any mesh this reads, so a mesh two cells thick is never taken for one)
+TILTED_PLANE_TOLERANCE = 1e-6
 
 #: the 2D cell of each prism cell type, and the corner count of its face on a plane
 _PRISMS = {"hexahedron": ("quad", 4), "wedge": ("triangle", 3)}
@@ -65,7 +71,62 @@ def as_measured(mesh: Mesh, *, keep_3d: bool = False) -> Quasi2D | None:
     is (2D, thicker, or ``keep_3d``). The one rule for measure, compare and the convergence sizes."""
     if keep_3d or mesh.dimension != 3:
         return None
-    return one_cell_thick(mesh)
+    flat = one_cell_thick(mesh)
+    if flat is None:
+        tilted = tilted_slab(mesh)
+        if tilted is not None:
+            import warnings
+
+            from ..errors import MeshWarning
+
+            warnings.warn(MeshWarning(tilted_slab_words(tilted)), stacklevel=2)
+    return flat
+
+
+def tilted_slab_words(tilted: tuple) -> str:
+    """The warning on a :func:`tilted_slab` ``(normal, depth)``: what is measured, and the fix."""
+    normal = ", ".join(f"{v:.3g}" for v in np.round(tilted[0], 12) + 0.0)
+    return (f"the mesh is one cell thick (depth {tilted[1]:.4g}) but its two planes are not normal to x, y or z "
+            f"(normal {normal}): it is measured as 3D, the interface kind and cells across with the cell size "
+            "V^(1/3); write it with its planes normal to an axis to measure it per unit depth as 2D")
+
+
+def tilted_slab(mesh: Mesh) -> tuple | None:
+    """``(normal, depth)`` of a mesh one cell thick between two parallel planes that are not normal to an
+    axis (:func:`one_cell_thick` takes axis planes only), else None (cached on the mesh).
+
+    The planes' normal is the direction of least spread of the used points (the smallest eigenvector of
+    their covariance: exact for a straight extrusion, whose two planes hold the same points shifted); the
+    mesh is such a slab when every cell is a hexahedron or a wedge, every used point lies on one of the two
+    planes (within :data:`TILTED_PLANE_TOLERANCE` of the largest extent), and every cell has half its corners
+    on each."""
+    return mesh.memo("tilted_slab", lambda: _tilted(mesh))
+
+
+def _tilted(mesh: Mesh) -> tuple | None:
+    if mesh.dimension != 3 or any(b.cell_type not in _PRISMS for b in mesh.blocks) or one_cell_thick(mesh):
+        return None
+    used = mesh.used_points
+    if used.size < 6:
+        return None
+    points = mesh.points[used]
+    centred = points - points.mean(axis=0)
+    normal = np.linalg.eigh(centred.T @ centred)[1][:, 0]  # eigenvalues ascending: the least spread
+    if np.max(np.abs(normal)) > 1 - 1e-12:
+        return None  # normal to an axis: one_cell_thick's case (not one cell thick there)
+    height = centred @ normal
+    lo, hi = float(height.min()), float(height.max())
+    tolerance = TILTED_PLANE_TOLERANCE * float(np.ptp(points, axis=0).max())
+    if hi - lo <= tolerance or not _on_planes(height, lo, hi, tolerance):
+        return None
+    on_lo = np.zeros(mesh.n_points, dtype=bool)
+    on_lo[used] = np.abs(height - lo) <= tolerance
+    for block in mesh.blocks:
+        if not np.all(on_lo[block.connectivity].sum(axis=1) == _PRISMS[block.cell_type][1]):
+            return None
+    if normal[np.argmax(np.abs(normal))] < 0:
+        normal = -normal
+    return tuple(float(v) for v in normal), hi - lo
 
 
 def one_cell_thick(mesh: Mesh) -> Quasi2D | None:

@@ -11,8 +11,8 @@ import numpy as np
 
 from ..model.axes import AXIS_NAMES
 
-__all__ = ["series_record", "series_input_files", "interface_snapshots", "measure_report_data", "measured_as",
-           "package_version"]
+__all__ = ["series_record", "blocks_left_out", "series_input_files", "interface_snapshots", "measure_report_data",
+           "measured_as", "package_version"]
 
 
 def package_version() -> str:
@@ -60,6 +60,21 @@ def series_record(series) -> dict:
     if getattr(series, "sort_by_time", False):
         record["order"] = "by the times in the files (sort_by_time)"
     return record
+
+
+def blocks_left_out(series, results) -> str:
+    """The multiblock blocks a run left out, in words: the polygon-data blocks of the first step's file
+    (:func:`series_record`) and the blocks of faces written in a volume format that the steps' reads left
+    out (:class:`~phasegauge.errors.BlocksLeftOutNote`), said alike; "" when none."""
+    from ..errors import BlocksLeftOutNote
+    from ..io._multiblock import left_out_names
+
+    shown = series_record(series).get("blocks_left_out", "").split(" (boundary patches")[0]
+    names = [n for n in shown.split(", ") if n]
+    names += [name for r in results for category, what, _ in (getattr(r, "warning_records", None) or [])
+              if issubclass(category, BlocksLeftOutNote) for name in left_out_names(what)]
+    names = list(dict.fromkeys(names))
+    return ", ".join(names) + " (boundary patches: the volume blocks are read)" if names else ""
 
 
 def measured_as(results, *, keep_3d: bool = False) -> dict:
@@ -136,6 +151,9 @@ def measure_report_data(series, result) -> dict:
     if sources:
         record["field_read"] = sources[0]
     record.update(measured_as(results, keep_3d=getattr(result.options, "keep_3d", False)))
+    left_out = blocks_left_out(series, results)
+    if left_out:
+        record["blocks_left_out"] = left_out
     return {
         "series": record,
         "inputs": series_input_files(series, results),

@@ -409,14 +409,15 @@ def _write_contour_listing(contour_dir: str, results) -> None:
 
 
 def _reading(series, results) -> list:
-    """Info lines on what the run read: a field's copy when it has two, multiblock blocks left out."""
-    from ._report_data import series_record
+    """Info lines on what the run read: a field's copy when it has two, multiblock blocks left out (polygon
+    data, and volume-format blocks of faces: :class:`~phasegauge.errors.BlocksLeftOutNote`)."""
+    from ._report_data import blocks_left_out
 
     lines = []
     sources = [r.field_source for r in results if getattr(r, "field_source", "") and r.skipped is None]
     if sources and "exists too" in sources[0]:
         lines.append(f"read {sources[0]}")
-    left_out = series_record(series).get("blocks_left_out")
+    left_out = blocks_left_out(series, results)  # polygon data, and blocks of faces in a volume format, alike
     if left_out:
         lines.append(f"multiblock blocks left out: {left_out}")
     return lines

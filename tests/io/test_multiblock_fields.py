@@ -1,0 +1,90 @@
+"""A multiblock step whose blocks do not all hold a field: the refusal names the blocks, their fields and the
+way out, and a copy left out on cells does not switch the run to the point copy without a word.
+
+Outside references: the files are written by pyvista's ``MultiBlock.save`` (VTK's multiblock writer) as a
+conjugate heat transfer run writes them (a fluid region holding the phase field, a solid region the
+temperature); the blocks' fields the messages must name are those VTK's own reader gives back
+(``pyvista.read``).
+"""
+
+import numpy as np
+import pytest
+import pyvista
+
+from phasegauge.errors import FieldNotFoundError, MeshWarning
+from phasegauge.io import Series
+from phasegauge.model.indicator import select_field
+
+pyvista.OFF_SCREEN = True
+
+
+def _region(z0):
+    grid = pyvista.ImageData(dimensions=(9, 9, 5), spacing=(1 / 8,) * 3, origin=(0, 0, z0))
+    grid = grid.cast_to_unstructured_grid()
+    centres = grid.cell_centers().points
+    grid.cell_data["alpha"] = (np.linalg.norm(centres - [0.5, 0.5, 0.5], axis=1) < 0.3).astype(float)
+    return grid
+
+
+def _fluid_and_solid(path):
+    fluid, solid = _region(0.0), _region(0.5)
+    del solid.cell_data["alpha"]
+    solid.cell_data["T"] = np.ones(solid.n_cells)
+    regions = pyvista.MultiBlock()
+    regions["fluid"], regions["solid"] = fluid, solid
+    regions.save(path)
+    return path
+
+
+def _alpha_on_points_in_one_block(path):
+    lower, upper = _region(0.0), _region(0.5)
+    lower.point_data["alpha"] = lower.cell_data_to_point_data().point_data["alpha"]
+    upper.point_data["alpha"] = upper.cell_data_to_point_data().point_data["alpha"]
+    del upper.cell_data["alpha"]
+    blocks = pyvista.MultiBlock()
+    blocks["lower"], blocks["upper"] = lower, upper
+    blocks.save(path)
+    return path
+
+
+def test_a_field_one_region_lacks_is_refused_naming_the_blocks_and_the_way_out(tmp_path):
+    path = _fluid_and_solid(tmp_path / "cht.vtm")
+    read = pyvista.read(path)  # VTK's reader: the fluid block holds alpha, the solid block T
+    assert list(read["fluid"].cell_data) == ["alpha"] and list(read["solid"].cell_data) == ["T"]
+    step = Series(path).read(0)
+    with pytest.raises(FieldNotFoundError) as caught:
+        select_field(step.fields, "alpha", where=step.info.where)
+    error = caught.value
+    assert "block solid of the multiblock file holds no 'alpha' on cells" in error.what
+    assert "fluid: alpha on cells; solid: T on cells" in error.what
+    assert "fields there: none" not in error.what
+    assert "quoted glob" in error.fix and "cht_0.vtu" in error.fix  # the fluid block's file
+    with pytest.raises(FieldNotFoundError, match=r"not read, held by some blocks only: T, alpha"):
+        select_field(step.fields, "phi", where=step.info.where)
+    from phasegauge.io.describe import describe_series, format_description
+
+    described = describe_series(str(path))  # inspect names them too
+    assert set(described["fields_left_out"]) == {"T", "alpha"}
+    assert "alpha            not read: block solid" in format_description(described)
+
+
+def test_a_cell_copy_one_block_lacks_is_not_swapped_for_the_point_copy_silently(tmp_path):
+    path = _alpha_on_points_in_one_block(tmp_path / "mixed.vtm")
+    read = pyvista.read(path)
+    assert "alpha" in read["lower"].cell_data and "alpha" not in read["upper"].cell_data
+    assert "alpha" in read["upper"].point_data
+    with pytest.warns(MeshWarning, match=r"field 'alpha': its copy on cells is left out, as block upper .* the copy "
+                                         r"on points is read; .*--field-location point"):
+        step = Series(path).read(0)
+    _, location = select_field(step.fields, "alpha", where=step.info.where)
+    assert location == "point"
+
+
+def test_a_field_every_block_holds_alike_gives_no_word(tmp_path, recwarn):
+    path = tmp_path / "both.vtm"
+    blocks = pyvista.MultiBlock()
+    blocks["lower"], blocks["upper"] = _region(0.0), _region(0.5)
+    blocks.save(path)
+    step = Series(path).read(0)
+    assert "alpha" in step.fields.cell_data and not step.fields.left_out
+    assert not [w for w in recwarn if "left out" in str(w.message)]

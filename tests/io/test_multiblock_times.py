@@ -1,0 +1,81 @@
+"""The time of a multiblock step: VTK's multiblock writer stores it in the ``.vtm`` itself, not in the blocks.
+
+Outside references: the files are written by pyvista's ``MultiBlock.save`` (VTK's
+``vtkXMLMultiBlockDataWriter``), and the times expected are those VTK's own reader gives back
+(``pyvista.read(...).field_data``).
+"""
+
+import numpy as np
+import pytest
+import pyvista
+
+from phasegauge.errors import MeshWarning
+from phasegauge.io import Series
+
+pyvista.OFF_SCREEN = True
+
+TIMES = (0.0, 0.05, 0.1)
+
+
+def _volume(shift=0.0):
+    grid = pyvista.ImageData(dimensions=(7, 7, 7), spacing=(1 / 6,) * 3).cast_to_unstructured_grid()
+    centres = grid.cell_centers().points
+    grid.cell_data["alpha"] = (np.linalg.norm(centres - [0.4 + shift, 0.5, 0.5], axis=1) < 0.25).astype(float)
+    return grid
+
+
+def _step(path, time, block_time=None):
+    volume = _volume(time)
+    if block_time is not None:
+        volume.field_data["TimeValue"] = [block_time]
+    steps = pyvista.MultiBlock()
+    steps["internal"] = volume
+    steps.field_data["TimeValue"] = [time]
+    steps.save(path)
+    return path
+
+
+def _vtk_time(path):
+    """The time VTK's own multiblock reader gives the file."""
+    return float(np.asarray(pyvista.read(path).field_data["TimeValue"]).ravel()[0])
+
+
+def test_the_time_stored_in_the_vtm_itself_is_the_steps(tmp_path):
+    paths = [_step(tmp_path / f"case_{k}.vtm", t) for k, t in enumerate(TIMES)]
+    assert [_vtk_time(p) for p in paths] == list(TIMES)  # VTK's reader: the times are in the .vtm
+    assert "TimeValue" not in pyvista.read(tmp_path / "case_1" / "case_1_0.vtu").field_data  # not in the block
+    series = Series(tmp_path)
+    assert series.times.tolist() == [_vtk_time(p) for p in paths]
+    assert series.time_origins == ["file"]
+    alone = Series(paths[1])  # one step given alone keeps its time too
+    assert alone.times.tolist() == [0.05]
+    assert alone.read(0).time == 0.05
+
+
+def test_a_binary_time_and_an_ascii_time_are_peeked(tmp_path):
+    from phasegauge.io._multiblock import own_time, peek_multiblock_time
+
+    binary = _step(tmp_path / "binary.vtm", 0.05)
+    assert repr(own_time(binary, decode=False)) == "TIME_NEEDS_FULL_READ"
+    assert float(own_time(binary)["TimeValue"][0]) == _vtk_time(binary)
+    assert peek_multiblock_time(binary) == _vtk_time(binary)  # decoded when peeked: no block is read for it
+    text = binary.read_text()
+    start, end = text.index("<DataArray"), text.index("</DataArray>") + len("</DataArray>")
+    ascii_path = tmp_path / "ascii.vtm"
+    ascii_path.write_text(text[:start] + '<DataArray type="Float64" Name="TimeValue" NumberOfTuples="1" '
+                          'format="ascii">0.125</DataArray>' + text[end:])
+    assert peek_multiblock_time(ascii_path) == _vtk_time(ascii_path) == 0.125
+
+
+def test_the_vtm_time_wins_over_a_blocks_other_time_with_a_warning(tmp_path):
+    path = _step(tmp_path / "case.vtm", 0.5, block_time=0.1)
+    assert _vtk_time(path) == 0.5
+    with pytest.warns(MeshWarning, match=r"stores time 0\.5 and its block internal stores 0\.1: the multiblock"):
+        step = Series(path).read(0)
+    assert step.time == 0.5
+
+
+def test_the_same_time_in_vtm_and_block_gives_no_warning(tmp_path, recwarn):
+    path = _step(tmp_path / "case.vtm", 0.05, block_time=0.05)
+    assert Series(path).read(0).time == 0.05
+    assert not [w for w in recwarn if issubclass(w.category, MeshWarning)]

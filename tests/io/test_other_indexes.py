@@ -1,0 +1,90 @@
+"""Index files another program writes beside the step files (ParaView's ``.pvd``, the JSON ``*.series``) are not
+read, but their times are not dropped without a word: one warning names them and the way to give the times.
+
+Outside references: the ``.pvd`` is read by VTK's own collection reader (pyvista's ``PVDReader``) and the
+``.series`` by Python's json module, both giving the times the folder's files do not store.
+"""
+
+import json
+import warnings
+
+import meshio
+import numpy as np
+import pytest
+import pyvista
+
+from phasegauge.errors import SeriesWarning
+from phasegauge.io import Series
+from phasegauge.meshgen import grid_mesh, to_meshio
+
+TIMES = (0.0, 0.002, 0.004, 0.006)
+
+
+def _files(folder, stored=False):
+    folder.mkdir()
+    mesh = grid_mesh((4, 4, 4))
+    names = [f"out_{k * 200:06d}.vtu" for k in range(len(TIMES))]
+    for name, t in zip(names, TIMES):
+        grid = pyvista.wrap(to_meshio(mesh, cell_data={"alpha": np.full(mesh.n_cells, 0.5)}))
+        if stored:
+            grid.field_data["TimeValue"] = [t]
+        grid.save(folder / name)
+    return names
+
+
+def _indexes(folder, names):
+    (folder / "out.pvd").write_text(
+        '<?xml version="1.0"?>\n<VTKFile type="Collection" version="0.1">\n<Collection>\n'
+        + "".join(f'<DataSet timestep="{t}" file="{n}"/>\n' for n, t in zip(names, TIMES))
+        + "</Collection>\n</VTKFile>\n")
+    (folder / "out.vtu.series").write_text(json.dumps(
+        {"file-series-version": "1.0", "files": [{"name": n, "time": t} for n, t in zip(names, TIMES)]}))
+
+
+def _series_warnings(path):
+    with warnings.catch_warnings(record=True) as caught:
+        warnings.simplefilter("always")
+        series = Series(path)
+    return series, [w.message for w in caught if issubclass(w.category, SeriesWarning)]
+
+
+def test_a_pvd_and_a_series_file_beside_unstamped_steps_are_named_once(tmp_path):
+    folder = tmp_path / "pvd"
+    names = _files(folder)
+    _indexes(folder, names)
+    # the times are there: VTK's collection reader and json read them (and the files store none)
+    assert pyvista.PVDReader(str(folder / "out.pvd")).time_values == pytest.approx(TIMES)
+    assert [f["time"] for f in json.loads((folder / "out.vtu.series").read_text())["files"]] == list(TIMES)
+    assert "TimeValue" not in meshio.read(folder / names[1]).field_data
+    for path in (str(folder), str(folder / "out_*.vtu")):
+        series, found = _series_warnings(path)
+        assert series.times.tolist() == [0, 1, 2, 3]  # not read: the step numbers, now said
+        named = [w for w in found if "another program's index" in w.what]
+        assert len(named) == 1
+        assert named[0].what.startswith("out.pvd, out.vtu.series beside the step files list their times")
+        assert "'time,path' listing" in named[0].what
+
+
+def test_no_word_when_the_files_store_their_times_or_the_index_names_other_files(tmp_path):
+    stamped = tmp_path / "stamped"
+    _indexes(stamped, _files(stamped, stored=True))
+    series, found = _series_warnings(stamped)
+    assert series.times.tolist() == pytest.approx(TIMES)
+    assert not [w for w in found if "another program's index" in w.what]
+    other = tmp_path / "other"
+    other.mkdir()
+    _indexes(other, [f"patch_{k}.vtp" for k in range(len(TIMES))])
+    (other / "run").mkdir()
+    _files(other / "run" / "steps")  # deeper than the folder above the step files
+    _, found = _series_warnings(other / "run" / "steps")
+    assert not [w for w in found if "another program's index" in w.what]
+
+
+def test_a_listing_beside_the_index_gives_the_times_without_the_warning(tmp_path):
+    folder = tmp_path / "pvd"
+    names = _files(folder)
+    _indexes(folder, names)
+    (folder / "times.steps").write_text("".join(f"{t},{n}\n" for n, t in zip(names, TIMES)))
+    series, found = _series_warnings(folder)
+    assert series.times.tolist() == list(TIMES)
+    assert not [w for w in found if "another program's index" in w.what]
