@@ -129,6 +129,9 @@ def test_polyhedra_of_other_shapes_are_coned_beside_whole_cells(tmp_path):
     np.testing.assert_allclose(whole, grid.compute_cell_sizes()["Volume"], rtol=1e-11)
     pairs = np.unique(np.stack([read.cell_parents, ids]), axis=1)  # whole cells and file cells: one to one
     assert pairs.shape[1] == np.unique(pairs[0]).size == np.unique(pairs[1]).size == mesh.n_cells
+    # each piece's file cell (a contour's ``cell``) is the one VTK numbers it by [lib]
+    numbers = read.cell_parents if read.file_cells is None else read.file_cells
+    np.testing.assert_array_equal(numbers, ids)
     # conforming: no inner face left unpaired (the box's own faces only, all quads), one piece
     corners, owners = read.boundary_faces
     assert len(owners) == 2 * (4 * 3 + 4 * 5 + 3 * 5) and np.all(corners[:, 0] >= 0)

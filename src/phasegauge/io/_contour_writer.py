@@ -3,9 +3,10 @@
 A contour (:class:`phasegauge.model.contour.Contour`) becomes a VTK
 unstructured grid of line (2D) or triangle (3D) cells through meshio: ``.vtu``
 (XML) or ``.vtk`` (legacy). Each element carries two cell arrays: ``cell``, the
-mesh cell it lies in, numbered as the input file numbers its cells (the whole cell of
-a piece, where a reader split cells), and ``size``, its length or area. Both formats also carry the
-step's time and number as one-value field-data arrays ``TimeValue`` and ``step``
+mesh cell it lies in, numbered as the input file numbers its cells (blocks of lines or vertices the
+mesh leaves out counted too; the whole cell of a piece, where a reader split cells), and ``size``,
+its length or area. Both formats also carry the step's time and number as one-value field-data
+arrays ``TimeValue`` and ``step``
 (the names VTK's own writers and readers use for a file's time; in a legacy file a
 dataset-level ``FIELD FieldData`` block, as VTK writes it), so a folder of them reads
 back as a series. The file appears in
@@ -60,7 +61,7 @@ def _format_of(path: Path) -> str:
 
 
 def write_contour(contour, path, *, time: float | None = None, step: int | None = None,
-                  cell_parents=None) -> Path:
+                  file_cells=None) -> Path:
     """Write a contour as a VTK file, atomically.
 
     Parameters
@@ -73,10 +74,11 @@ def write_contour(contour, path, *, time: float | None = None, step: int | None 
         Time of the step, kept as the one-value field-data array ``TimeValue``.
     step : int, optional
         Number of the step, kept as the one-value field-data array ``step``.
-    cell_parents : ndarray of shape (n_cells,), int, optional
-        :attr:`Mesh.cell_parents` of the mesh the contour was found on, where a reader split the file's
-        cells (polyhedra, mixed meshes): ``contour.cells`` number the pieces, and the ``cell`` array is
-        written as the file's cell of each piece. None: ``contour.cells`` are the file's cells.
+    file_cells : ndarray of shape (n_cells,), int, optional
+        The file's number of each cell of the mesh the contour was found on (:attr:`Mesh.file_cells`, else
+        :attr:`Mesh.cell_parents`), where they differ from the mesh's: blocks left out before or among the
+        kept ones, cells a reader split (polyhedra, mixed meshes) or reordered. The ``cell`` array is
+        written as ``file_cells[contour.cells]``. None: ``contour.cells`` are the file's cells.
 
     Returns
     -------
@@ -106,8 +108,8 @@ def write_contour(contour, path, *, time: float | None = None, step: int | None 
     cell_type = "line" if contour.dimension == 2 else "triangle"
     elements = np.asarray(contour.elements, dtype=np.int64)
     cells = np.asarray(contour.cells, dtype=np.int64)
-    if cell_parents is not None:  # the pieces a reader split a cell into name the file's cell
-        cells = np.asarray(cell_parents, dtype=np.int64)[cells]
+    if file_cells is not None:  # the cells as the file numbers them
+        cells = np.asarray(file_cells, dtype=np.int64)[cells]
     mesh = meshio.Mesh(
         np.asarray(contour.points, dtype=np.float64),
         [(cell_type, elements)],

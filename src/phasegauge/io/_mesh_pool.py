@@ -11,6 +11,8 @@ process inherits the meshes with their caches.
 
 from __future__ import annotations
 
+import numpy as np
+
 from ..errors import OptionError
 from ..model.mesh import Mesh
 
@@ -53,7 +55,8 @@ class MeshPool:
         """A kept mesh with the same points and cells as ``candidate``, or None."""
         for mesh in self._meshes:
             if mesh is candidate or (mesh.n_points == candidate.n_points
-                                     and mesh.same_topology(candidate.points, candidate.blocks)):
+                                     and mesh.same_topology(candidate.points, candidate.blocks)
+                                     and _same_numbers(getattr(mesh, "file_cells", None), candidate.file_cells)):
                 return mesh
         return None
 
@@ -86,3 +89,8 @@ class MeshPool:
     def __setstate__(self, state):
         self.size = state["size"]
         self._meshes = []
+
+
+def _same_numbers(a, b) -> bool:
+    """Whether two meshes number their cells alike in their files (:attr:`Mesh.file_cells`)."""
+    return (a is None and b is None) or (a is not None and b is not None and np.array_equal(a, b))

@@ -135,6 +135,9 @@ def convex_point_sets(raw):
         return raw
     new_blocks, new_data, pieces = [], {name: [] for name in raw.cell_data}, []
     earlier = getattr(raw, "cell_pieces", None) or [None] * len(raw.cells)
+    # the file's number of each cell goes with the cells as a cell array does (under a name no file uses)
+    new_data[_FILE_ROWS] = []
+    rows_in = {**raw.cell_data, _FILE_ROWS: file_rows(raw)}
     points = np.asarray(raw.points, dtype=np.float64)
     if points.shape[1] < 3:
         points = np.hstack([points, np.zeros((len(points), 3 - points.shape[1]))])
@@ -145,7 +148,7 @@ def convex_point_sets(raw):
         if not marked[i]:
             new_blocks.append((str(block.type), block.data))
             pieces.append(earlier[i])
-            for name, arrays in raw.cell_data.items():
+            for name, arrays in rows_in.items():
                 new_data[name].append(arrays[i])
             continue
         start = len(out.blocks)
@@ -153,7 +156,7 @@ def convex_point_sets(raw):
         for (cell_type, cells), rows, split in zip(out.blocks[start:], out.source[start:], out.split[start:]):
             new_blocks.append((cell_type, cells))
             pieces.append(rows if split else None)  # the row of its input cell in this block
-        for name, arrays in raw.cell_data.items():
+        for name, arrays in rows_in.items():
             values = np.asarray(arrays[i])
             new_data[name].extend(values[rows] for rows in out.source[start:])
     # the hexahedra, wedges and pyramids meeting split cells are split alike, so shared faces conform
@@ -168,11 +171,42 @@ def convex_point_sets(raw):
             if np.issubdtype(values.dtype, np.number):
                 raw.point_data[name] = np.concatenate([values, corner_means(values, rows, offsets)])
     raw.cells = [CellBlock(t, c) for t, c in new_blocks]
+    raw.cell_rows = new_data.pop(_FILE_ROWS)
     raw.cell_data = new_data
     if any(p is not None for p in pieces):
         raw.cell_pieces = pieces
     raw.convex_point_sets = f"convex point set cells (VTK 41) read {out.words()}"
     return raw
+
+
+_FILE_ROWS = "\0file rows"  # the cell array that carries the file's cell numbers through a split
+
+
+def file_rows(raw) -> list:
+    """The file's number of each cell of ``raw``, an array per block: ``raw.cell_rows`` where a reader set it (cells
+    it split or reordered), else the blocks' cells counted on in order as the file lists them (blocks of lines or
+    vertices too, though the mesh leaves them out)."""
+    rows = getattr(raw, "cell_rows", None)
+    if rows is not None:
+        return rows
+    sizes = [len(b.data) for b in raw.cells]
+    starts = np.concatenate([[0], np.cumsum(sizes)]).astype(np.int64)
+    return [np.arange(a, a + n, dtype=np.int64) for a, n in zip(starts, sizes)]
+
+
+def file_cells(raw, mesh: Mesh):
+    """The file's number of each cell of ``mesh`` read from ``raw`` (:attr:`Mesh.file_cells`), or None where the
+    mesh's own numbers (of its whole cells, :attr:`Mesh.cell_parents`) are the file's: no block before or among
+    the kept ones was left out, and no reader split or reordered cells."""
+    kept = mesh.kept_blocks
+    sizes = [len(b.data) for b in raw.cells]
+    if getattr(raw, "cell_rows", None) is None and mesh.cell_parents is None \
+            and all(i in kept or sizes[i] == 0 for i in range(max(kept) + 1)):
+        return None
+    rows = file_rows(raw)
+    numbers = np.concatenate([np.asarray(rows[i], dtype=np.int64) for i in kept])
+    own = mesh.cell_parents if mesh.cell_parents is not None else np.arange(mesh.n_cells)
+    return None if np.array_equal(numbers, own) else numbers
 
 
 def read_with_meshio(path: str, fmt: str, *, fallback=None):
@@ -356,9 +390,11 @@ def mesh_and_fields(raw, where: str, pool=None) -> tuple[Mesh, StepFields]:
         candidate = Mesh(raw.points, raw.cells, pieces=getattr(raw, "cell_pieces", None))
     except UnsupportedMeshError as err:
         raise err.with_where(where) from None
+    candidate.file_cells = file_cells(raw, candidate)
     mesh = None if pool is None else pool.match(candidate)
     if mesh is None:
         mesh = _checked_mesh(candidate, raw, where)
+        mesh.file_cells = candidate.file_cells
         if mesh is not candidate and pool is not None:
             mesh = pool.match(mesh) or mesh
     note = getattr(raw, "convex_point_sets", None)

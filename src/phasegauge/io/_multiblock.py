@@ -137,7 +137,7 @@ def read_multiblock(path: str):
     stay marked as pieces of their cell (``cell_pieces``).
     """
     from ._formats import read_mesh_file
-    from ._meshio_adapter import new_mesh
+    from ._meshio_adapter import file_rows, new_mesh
 
     blocks = multiblock_blocks(path)
     pieces = [read_mesh_file(_volume_file(path, file)) for _, file in blocks.volume]
@@ -147,12 +147,16 @@ def read_multiblock(path: str):
     if len(pieces) == 1:
         return _with_own_time(pieces[0], path, named[0][0])
     pieces = [_owned_cells(piece) for piece in pieces]
-    points, cells, offset = [], [], 0
+    points, cells, offset, rows, counted = [], [], 0, [], 0
     single = any(np.asarray(p.points).dtype == np.float32 for p in pieces)
     for piece in pieces:
         points.append(np.asarray(piece.points, dtype=np.float64))
         cells.extend((b.type, np.asarray(b.data) + offset) for b in piece.cells)
         offset += len(piece.points)
+        # cells numbered as each volume block's file numbers them, counted on from block to block
+        own = file_rows(piece)
+        rows.extend(r + counted for r in own)
+        counted += max((int(r.max()) + 1 for r in own if len(r)), default=0)
     block_sizes = [len(p) for p in points]
     points = seams_made_equal(points, single_precision=single)
     point_data = {name: np.concatenate([np.asarray(p.point_data[name]) for p in pieces])
@@ -164,6 +168,7 @@ def read_multiblock(path: str):
     joined.fields_left_out = fields_left_out(pieces, named, path, point_data, cell_data)
     joined = _with_own_time(joined, path, named[0][0])
     joined.block_sizes = block_sizes  # points merged across blocks are the join, not duplicates
+    joined.cell_rows = rows
     joined.single_precision_points = single
     if any(getattr(p, "cell_pieces", None) for p in pieces):  # cells a reader split stay marked per block
         joined.cell_pieces = [mark for p in pieces
@@ -212,6 +217,8 @@ def _owned_cells(piece):
     without the mark arrays; a block of cells a reader split (``cell_pieces``) is kept whole."""
     import meshio
 
+    from ._meshio_adapter import file_rows
+
     marks = piece.cell_data.get("vtkGhostType")
     piece.point_data.pop("vtkGhostType", None)
     if marks is None or getattr(piece, "cell_pieces", None):
@@ -230,8 +237,10 @@ def _owned_cells(piece):
     cell_data = {name: [np.asarray(a)[k] for a, k in zip(arrays, keep)]
                  for name, arrays in piece.cell_data.items() if name != "vtkGhostType"}
     point_data = {name: np.asarray(values)[used] for name, values in piece.point_data.items()}
-    return meshio.Mesh(np.asarray(piece.points)[used], cells, point_data=point_data, cell_data=cell_data,
-                       field_data=dict(piece.field_data or {}))
+    owned = meshio.Mesh(np.asarray(piece.points)[used], cells, point_data=point_data, cell_data=cell_data,
+                        field_data=dict(piece.field_data or {}))
+    owned.cell_rows = [r[k] for r, k in zip(file_rows(piece), keep)]  # the block file's numbers of the cells kept
+    return owned
 
 
 def seams_made_equal(points: list, *, single_precision: bool = False) -> np.ndarray:

@@ -318,6 +318,7 @@ class PolyhedralRead:
         rows_of = self._rows_of + [rows[split.source]] if self._numeric_cell_data() else []
         raw = new_mesh(points, blocks, point_data=point_data, cell_data=self._cell_data_of(rows_of),
                        field_data=self.field_data)
+        raw.cell_rows = self._rows_of + [rows[split.source]]  # the file's number of each cell (io: file_rows)
         note = None
         if any(isinstance(name, type(CONVEX_POINT_SET)) for name, _ in blocks):
             # convex cells split about their faces share the polyhedra's face centres
@@ -375,16 +376,19 @@ class PolyhedralRead:
         if split is None:
             raw = new_mesh(self._points, whole, point_data=self._point_data, cell_data=self._cell_data_of(rows_of),
                            field_data=self.field_data)
+            raw.cell_rows = rows_of  # the file's number of each cell (io: file_rows)
             raw.convex_point_sets = ordinary.words
             return raw
         self._warn_inverted(split, stacklevel=5)
         pieces = (("pyramid", split.pyramids, split.pyramid_source), ("tetra", split.tetra, split.source))
         coned = [(name, cells, source) for name, cells, source in pieces if len(cells)]
         # 8 bytes a piece: only if used
-        rows_of = rows_of + [ordinary.coned_rows[source] for *_, source in coned] if self._numeric_cell_data() else []
+        all_rows = rows_of + [ordinary.coned_rows[source] for *_, source in coned]
+        rows_of = all_rows if self._numeric_cell_data() else []
         points, point_data = self._with_centres(split)
         raw = new_mesh(points, whole + [(name, cells) for name, cells, _ in coned], point_data=point_data,
                        cell_data=self._cell_data_of(rows_of), field_data=self.field_data)
+        raw.cell_rows = all_rows  # the file's number of each cell (io: file_rows)
         # a polyhedron's pyramids and tetrahedra are pieces of it: numbered alike across their two blocks
         raw.cell_pieces = [None] * len(whole) + [source if k == 0 else JoinedPieces(source)
                                                  for k, (*_, source) in enumerate(coned)]

@@ -176,6 +176,7 @@ class Mesh:
         self.n_points = n_points
         self.point_merge = None if point_merge is None else np.asarray(point_merge, dtype=np.int64)
         self.cell_parents = None  # the whole cell of each analysed cell, when a reader split cells
+        self.file_cells = None  # the file's number of each analysed cell, where not cell_parents' (io: file_cells)
         if pieces is not None and any(pieces[i] is not None for i in self.kept_blocks):
             parts, top, base = [], 0, 0
             for i, block in zip(self.kept_blocks, self.blocks):

@@ -346,7 +346,8 @@ def _phase_analyses(step, mesh, ind, options, result, m: dict, velocity: tuple, 
             from ..io import write_contour
 
             write_contour(contour, os.path.join(contour_dir, f"interface_{step.index:06d}.vtu"),
-                          time=step.time, step=step.index, cell_parents=mesh.cell_parents)
+                          time=step.time, step=step.index,
+                          file_cells=_file_cells(mesh))
     if "droplets" in options.analyses:
         found = _label_droplets(mesh, ind, options, u_cell, contour, plateaus) if labels is None else labels.result()
         table = found.table
@@ -364,6 +365,12 @@ def _phase_analyses(step, mesh, ind, options, result, m: dict, velocity: tuple, 
         result.droplets = table
         del found, labelled  # labels and c dV of every cell (16 bytes a cell): not held through the sections
     return contour, measured
+
+
+def _file_cells(mesh):
+    """The file's number of each cell of ``mesh`` where it is not the mesh's own (a contour's ``cell``), or None."""
+    numbers = getattr(mesh, "file_cells", None)
+    return mesh.cell_parents if numbers is None else numbers
 
 
 def _label_droplets(mesh, ind, options, u_cell, contour, plateaus):

@@ -1,0 +1,77 @@
+"""A contour's ``cell`` array numbers the cells as the input file does, blocks left out counted.
+
+A file whose cell list holds boundary lines (a Gmsh mesh converted by meshio) or faces before the
+volume cells: the mesh leaves those out, and the contour still names the file's cells.
+
+Outside checks: the file's cell list as meshio reads it (its blocks in the file's order) [lib]; each
+contour element's midpoint lies in the quad its ``cell`` names, by the signs of the cross products of
+the quad's edges and the point (a point is in a convex polygon when it is on the inner side of every
+edge: elementary geometry, in numpy); the polyhedra's own cell numbers written by VTK (pyvista) [lib].
+"""
+
+import meshio
+import numpy as np
+import pytest
+
+from phasegauge import measure
+from phasegauge.io import Series, read_contour
+
+
+def _drop_file(path, with_lines: bool) -> None:
+    """A 40 x 40 quad grid of the unit square with a tanh drop of c on the cells (radius 0.25), written with the
+    40 line cells of its bottom edge before the quads, or without them."""
+    n = 40
+    x = np.linspace(0, 1, n + 1)
+    xx, yy = np.meshgrid(x, x, indexing="ij")
+    points = np.c_[xx.ravel(), yy.ravel(), 0 * xx.ravel()]
+    idx = np.arange(points.shape[0]).reshape(n + 1, n + 1)
+    quads = np.c_[idx[:-1, :-1].ravel(), idx[1:, :-1].ravel(), idx[1:, 1:].ravel(), idx[:-1, 1:].ravel()]
+    lines = np.c_[idx[:-1, 0], idx[1:, 0]]
+    centre = points[quads].mean(1)
+    c = 1 / (1 + np.exp((np.hypot(centre[:, 0] - 0.5, centre[:, 1] - 0.5) - 0.25) / 0.02))
+    blocks, data = [("quad", quads)], [c]
+    if with_lines:
+        blocks, data = [("line", lines)] + blocks, [np.zeros(len(lines))] + data
+    meshio.write(path, meshio.Mesh(points, blocks, cell_data={"c": data}))
+
+
+def _inside_named_cells(contour_path, mesh_path) -> tuple:
+    """How many contour elements have their midpoint in the file cell their ``cell`` names, and how many there
+    are; the file's cells as meshio lists them, all blocks in order [lib]."""
+    contour = read_contour(contour_path)
+    src = meshio.read(mesh_path)
+    listed = [(b.type, row) for b in src.cells for row in np.asarray(b.data)]
+    mid = contour.points[contour.elements].mean(axis=1)[:, :2]
+    inside = 0
+    for point, cell in zip(mid, contour.cells):
+        kind, row = listed[cell]
+        if kind != "quad":
+            continue
+        q = src.points[row][:, :2]
+        edge, to_point = np.roll(q, -1, axis=0) - q, point - q
+        cross = edge[:, 0] * to_point[:, 1] - edge[:, 1] * to_point[:, 0]  # counter-clockwise quad: all >= 0
+        inside += bool(np.all(cross >= -1e-12))
+    return inside, len(contour.cells)
+
+
+@pytest.mark.parametrize("with_lines", [True, False])
+def test_contour_cells_are_the_files_cells(tmp_path, with_lines):
+    path = str(tmp_path / "m_0.vtu")
+    _drop_file(path, with_lines)
+    measure(path, "c", out=tmp_path / "out", analyses=("interface",), contours=True)
+    inside, total = _inside_named_cells(str(tmp_path / "out" / "contours" / "interface_000000.vtu"), path)
+    assert total > 50 and inside == total  # before: 0 of 76 with the lines first (each id 40 short)
+    mesh = Series(path).read(0).mesh
+    if with_lines:
+        np.testing.assert_array_equal(mesh.file_cells, np.arange(40, 40 + 1600))
+    else:  # no block left out: the mesh's own numbers, nothing kept
+        assert mesh.file_cells is None and mesh.cell_parents is None
+
+
+def test_meshes_numbered_differently_in_their_files_are_not_shared(tmp_path):
+    """Two steps with the same volume cells, one with the boundary lines first: each keeps its own numbers."""
+    _drop_file(str(tmp_path / "s_0.vtu"), False)
+    _drop_file(str(tmp_path / "s_1.vtu"), True)
+    series = Series(str(tmp_path / "s_*.vtu"))
+    first, second = series.read(0).mesh, series.read(1).mesh
+    assert first.file_cells is None and second.file_cells[0] == 40
