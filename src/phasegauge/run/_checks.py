@@ -22,19 +22,40 @@ def _check(name: str, passed: str, reason: str = "") -> dict:
     return {"check": name, "made": not reason, "passed_as": passed, "not_made_because": reason}
 
 
-def standing_checks(steps, audit: dict, options) -> list:
+def _drift_not_judged(steps, found) -> str:
+    """Why the phase volume's drift was not judged though measured over two steps or more, or ''."""
+    kinds = {getattr(f, "kind", None): getattr(f, "text", "") for f in (found or ())}
+    if "phase_volume_not_judged" in kinds:
+        if "store no times" in kinds["phase_volume_not_judged"]:
+            return "an open domain over steps that store no times: its boundary flow cannot be integrated"
+        return "an open domain whose outputs are too far apart to integrate its boundary flow"
+    if "phase_volume_left_out" in kinds:
+        return "its change lies within what the cells left out (non-finite values) could hold"
+    volume = steps["phase_volume"].to_numpy(dtype=float) if "phase_volume" in steps else None
+    if volume is not None and not (np.abs(np.nan_to_num(volume)) > 0).any():
+        return "no phase: the phase volume is 0 at every step"
+    return ""
+
+
+def _finite_somewhere(steps, column: str) -> bool:
+    return steps is not None and column in steps and bool(np.isfinite(steps[column].to_numpy(dtype=float)).any())
+
+
+def standing_checks(steps, audit: dict, options, found=None) -> list:
     """The checks a clean run vouches for, each a dict: ``check`` (its name), ``made`` (bool),
     ``passed_as`` (the words that say it passed) and ``not_made_because`` (empty when made).
 
-    Made only where the run measured what the check reads: the diffusion audit fitted a width history
-    (``interface_widening``), the phase volume over two steps or more (``phase_volume_drift``), the
+    Made only where the run judged what the check reads: the diffusion audit fitted a width history
+    (``interface_widening``), the phase volume over two steps or more, not 0 at every step, and no finding
+    (``found``: the run's findings) that says its drift was not judged (``phase_volume_drift``), the
     overshoot volume (``indicator_bounds``), the share of the interface under 4 cells across on a
-    diffuse interface (``interface_resolution``) and the droplets (``droplet_resolution``).
+    diffuse interface, finite at some step (``interface_resolution``), and one droplet or more
+    (``droplet_resolution``).
     """
     analyses = set(getattr(options, "analyses", ()))
     level_set = bool(getattr(options, "level_set", False))
     kind = (audit or {}).get("interface_kind")
-    found = []
+    checks = []
     # the diffusion audit: a fitted diffusivity, or nothing to judge
     audit = audit or {}
     fitted = np.isfinite(float(audit.get("D_num", np.nan)))
@@ -44,22 +65,27 @@ def standing_checks(steps, audit: dict, options) -> list:
            else "a level set has no width of its own" if level_set or kind == "level set"
            else verdict if verdict.startswith("too few")
            else "sharp interface: its width is the scheme's reconstruction" if kind == "sharp" else verdict)
-    found.append(_check("interface_widening", "interface not widening", why))
+    checks.append(_check("interface_widening", "interface not widening", why))
     n = len(steps) if steps is not None else 0
     measured = steps is not None and "phase_volume_drift" in steps
     why = ("" if "conservation" in analyses and measured and n > 1 else NOT_IN_ANALYSES
            if "conservation" not in analyses else "one step only: no change to judge" if measured
            else "no phase volume measured")
-    found.append(_check("phase_volume_drift", "phase volume within tolerance", why))
+    why = why or _drift_not_judged(steps, found)
+    checks.append(_check("phase_volume_drift", "phase volume within tolerance", why))
     why = ("" if steps is not None and "overshoot_volume" in steps else NOT_IN_ANALYSES
            if "conservation" not in analyses else "no overshoot volume measured")
-    found.append(_check("indicator_bounds", "indicator bounded", why))
+    checks.append(_check("indicator_bounds", "indicator bounded", why))
     why = ("" if "interface" in analyses and kind not in ("sharp", "level set") and not level_set
-           and steps is not None and "under_resolved_interface_fraction" in steps
+           and _finite_somewhere(steps, "under_resolved_interface_fraction")
            else NOT_IN_ANALYSES if "interface" not in analyses
            else "a level set has no width of its own" if level_set or kind == "level set"
            else "a sharp interface is one to two cells by design" if kind == "sharp"
+           else "no interface found at any step" if steps is not None and "under_resolved_interface_fraction" in steps
            else "no interface thickness measured")
-    found.append(_check("interface_resolution", "interface resolved", why))
-    found.append(_check("droplet_resolution", "droplets resolved", "" if "droplets" in analyses else NOT_IN_ANALYSES))
-    return found
+    checks.append(_check("interface_resolution", "interface resolved", why))
+    counts = steps["droplet_count"].to_numpy(dtype=float) if steps is not None and "droplet_count" in steps else ()
+    why = (NOT_IN_ANALYSES if "droplets" not in analyses
+           else "" if (np.nan_to_num(counts) > 0).any() else "no droplets found")
+    checks.append(_check("droplet_resolution", "droplets resolved", why))
+    return checks
