@@ -123,10 +123,13 @@ def test_each_reason_a_check_was_not_made():
     from phasegauge.run._checks import standing_checks
     from phasegauge.run.options import MeasureOptions
 
-    one = pd.DataFrame({"step": [0], "time": [0.0], "phase_volume_drift": [0.0], "overshoot_volume": [0.0]})
+    one = pd.DataFrame({"step": [0], "time": [0.0], "phase_volume_drift": [0.0], "overshoot_volume": [0.0],
+                        "droplet_count": [1]})
     checks = {c["check"]: c for c in standing_checks(one, {}, MeasureOptions(field="c"))}
     assert checks["phase_volume_drift"]["not_made_because"] == "one step only: no change to judge"
     assert checks["indicator_bounds"]["made"] and checks["droplet_resolution"]["made"]
+    none = {c["check"]: c for c in standing_checks(one.assign(droplet_count=[0]), {}, MeasureOptions(field="c"))}
+    assert none["droplet_resolution"]["not_made_because"] == "no droplets found"
     level_set = {c["check"]: c for c in standing_checks(one, {"interface_kind": "level set"},
                                                         MeasureOptions(field="c", level_set=True))}
     assert level_set["interface_widening"]["not_made_because"] == "a level set has no width of its own"
