@@ -75,3 +75,29 @@ def test_meshes_numbered_differently_in_their_files_are_not_shared(tmp_path):
     series = Series(str(tmp_path / "s_*.vtu"))
     first, second = series.read(0).mesh, series.read(1).mesh
     assert first.file_cells is None and second.file_cells[0] == 40
+
+
+def test_one_cell_thick_mesh_with_its_faces_first(tmp_path):
+    """Hexahedra one cell thick (measured on their lower plane) with their 400 lower faces listed first."""
+    n = 20
+    x = np.linspace(0, 1, n + 1)
+    xx, yy, zz = np.meshgrid(x, x, [0.0, 0.05], indexing="ij")
+    points = np.c_[xx.ravel(), yy.ravel(), zz.ravel()]
+    idx = np.arange(points.shape[0]).reshape(n + 1, n + 1, 2)
+    lower = np.c_[idx[:-1, :-1, 0].ravel(), idx[1:, :-1, 0].ravel(), idx[1:, 1:, 0].ravel(), idx[:-1, 1:, 0].ravel()]
+    upper = np.c_[idx[:-1, :-1, 1].ravel(), idx[1:, :-1, 1].ravel(), idx[1:, 1:, 1].ravel(), idx[:-1, 1:, 1].ravel()]
+    hexes = np.c_[lower, upper]
+    centre = points[hexes].mean(1)
+    c = 1 / (1 + np.exp((np.hypot(centre[:, 0] - 0.5, centre[:, 1] - 0.5) - 0.25) / 0.04))
+    path = str(tmp_path / "q_0.vtu")
+    meshio.write(path, meshio.Mesh(points, [("quad", lower), ("hexahedron", hexes)],
+                                   cell_data={"c": [np.zeros(len(lower)), c]}))
+    measure(path, "c", out=tmp_path / "out", analyses=("interface",), contours=True)
+    contour = read_contour(str(tmp_path / "out" / "contours" / "interface_000000.vtu"))
+    src = meshio.read(path)  # the file's cells as meshio lists them [lib]
+    assert np.all(contour.cells >= len(lower))  # hexahedra, not the faces before them
+    box = src.points[np.asarray(src.cells[1].data)[contour.cells - len(lower)]]
+    mid = contour.points[contour.elements].mean(axis=1)
+    inside = np.all((mid[:, None, :2] >= box[:, :, :2].min(1)[:, None] - 1e-12)
+                    & (mid[:, None, :2] <= box[:, :, :2].max(1)[:, None] + 1e-12), axis=2)[:, 0]
+    assert len(mid) > 20 and inside.all()  # each midpoint in its hexahedron's footprint (axis-aligned boxes)

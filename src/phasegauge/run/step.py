@@ -171,6 +171,8 @@ def flatten_step(step, options):
         return step, None
     fields = replace(step.fields, point_data={name: np.asarray(values)[flat.points]
                                               for name, values in step.fields.point_data.items()})
+    if getattr(step.mesh, "file_cells", None) is not None:  # the cells keep their order: and their file's numbers
+        flat.mesh.file_cells = step.mesh.file_cells
     return replace(step, mesh=flat.mesh, fields=fields), flat
 
 
