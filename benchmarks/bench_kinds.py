@@ -3,9 +3,9 @@
 Runs, one configuration at a time in fresh child processes (the jobs of ``bench_measure.py`` and
 ``bench_polyhedra.py``, unchanged), the series of both scripts at each size:
 
-* ``tetra``, ``grid``, ``hexahedron``: ``bench_measure.py``'s XDMF series (a grid split into
-  tetrahedra, the regular grid of hexahedra, the jittered hexahedra), configurations ``raw``,
-  ``baseline`` and ``serial``;
+* ``tetra``, ``grid``, ``hexahedron``, ``hexahedron-cells``: ``bench_measure.py``'s XDMF series (a
+  grid split into tetrahedra, the regular grid of hexahedra, the jittered hexahedra, the same with the
+  field on the cells), configurations ``raw``, ``baseline`` and ``serial``;
 * ``polyhedron``: ``bench_polyhedra.py``'s folder of VTK polyhedra (the jittered hexahedra
   written as polyhedra, which the reader takes as hexahedra), configurations ``baseline``
   (pyvista on the polyhedra) and ``polyhedra`` (``measure``);
@@ -57,8 +57,8 @@ import bench_measure  # noqa: E402  (the jobs and series of the per-kind benchma
 import bench_polyhedra  # noqa: E402
 
 HERE = os.path.dirname(os.path.abspath(__file__))
-KINDS = ("tetra", "grid", "hexahedron", "polyhedron", "polyhedron-mixed", "polyhedron-band", "polyhedron-split",
-         "polyhedron-raw")
+KINDS = ("tetra", "grid", "hexahedron", "hexahedron-cells", "polyhedron", "polyhedron-mixed", "polyhedron-band",
+         "polyhedron-split", "polyhedron-raw")
 #: the folder of ``bench_polyhedra.py`` each polyhedral kind reads
 POLYHEDRAL_SERIES = {"polyhedron": "polyhedra", "polyhedron-mixed": "split", "polyhedron-band": "band",
                      "polyhedron-split": "triangulated", "polyhedron-raw": "raw"}
