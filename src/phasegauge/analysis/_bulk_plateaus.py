@@ -14,6 +14,11 @@ PLATEAU_TOLERANCE = 1e-3
 #: :data:`PLATEAU_BAND` of it (see :func:`bulk_plateaus`)
 PLATEAU_SHARE = 0.2
 PLATEAU_BAND = 0.01
+#: a side whose values never reach its ideal keeps its own bulk only beyond the interface's reach, this many
+#: eps or cells from the contour (with a mesh), or with this share of it within PLATEAU_BAND of the bulk (without)
+REACH_EPS = 8.0
+REACH_CELLS = 4.0
+UNREACHED_SHARE = 0.6
 
 
 def bulk_plateaus(c_point: np.ndarray, level: float, mesh=None) -> tuple[float, float, float]:
@@ -102,7 +107,14 @@ def bulk_plateaus(c_point: np.ndarray, level: float, mesh=None) -> tuple[float, 
         # distance from 0, is not at 0 when no value of it lies below 0.0135); the crest of a profile, or the
         # tail of one cut off by the domain, holds too little of its side near g and still reads the ideal
         short = (float(side.min()) - ideal if below else ideal - float(side.max())) > PLATEAU_TOLERANCE
-        unreached = short and near.size >= 0.5 * side.size and _holds(side, g, mesh, mask, finite)
+        # a crest or a cut tail piles its values near its contour: with a mesh a fifth of the side must lie beyond
+        # the interface's reach (:func:`_beyond_reach`); without one, UNREACHED_SHARE of it within PLATEAU_BAND of g
+        # and g nearer its ideal than the level (a logistic tail cut short of 1e-3 holds at most 0.42 of its side
+        # within 0.01 of g, a matrix 0.83 and more; a crest 0.05 above the level holds all of it)
+        unreached = (short and near.size >= 0.5 * side.size
+                     and (_holds(side, g, mesh, mask, finite) and _beyond_reach(c_point, level, mesh, mask, finite)
+                          if mesh is not None else _holds(side, g, None, mask, finite, UNREACHED_SHARE)
+                          and abs(g - ideal) < abs(g - level)))
         # beyond 0.25 of the ideal, a plateau must hold a fifth of its side (a bulk, as a partially
         # miscible pair's phases sit at 0.3 and 0.7; not the top of a drop that never reached its bulk)
         held = abs(g - ideal) <= 0.25 or unreached or (strict and _holds(side, g, mesh, mask, finite))
@@ -121,15 +133,46 @@ def bulk_plateaus(c_point: np.ndarray, level: float, mesh=None) -> tuple[float, 
     return low, high, tail
 
 
-def _holds(side: np.ndarray, g: float, mesh, mask: np.ndarray, finite: np.ndarray) -> bool:
-    """Whether :data:`PLATEAU_SHARE` of a side (its values ``side``, where ``mask`` holds among the finite
-    points) lies within :data:`PLATEAU_BAND` of ``g``: by the points' volumes given the mesh, else by count."""
+def _holds(side: np.ndarray, g: float, mesh, mask: np.ndarray, finite: np.ndarray,
+           share: float = PLATEAU_SHARE) -> bool:
+    """Whether ``share`` of a side (its values ``side``, where ``mask`` holds among the finite points) lies
+    within :data:`PLATEAU_BAND` of ``g``: by the points' volumes given the mesh, else by count."""
     near = np.abs(side - g) <= PLATEAU_BAND
     if mesh is None:
-        return np.count_nonzero(near) >= PLATEAU_SHARE * side.size
+        return np.count_nonzero(near) >= share * side.size
     volume = point_volumes(mesh)
     volume = (volume if finite.all() else volume[finite])[mask]
-    return float(volume[near].sum()) >= PLATEAU_SHARE * float(volume.sum())
+    return float(volume[near].sum()) >= share * float(volume.sum())
+
+
+def _beyond_reach(c_point: np.ndarray, level: float, mesh, mask: np.ndarray, finite: np.ndarray) -> bool:
+    """Whether :data:`PLATEAU_SHARE` of a side (by the points' volumes) lies farther than the interface's reach,
+    max(REACH_EPS eps, REACH_CELLS cells), from the centroids of the cells the level crosses.
+
+    eps is the median of d / |ln(c / (1 - c))| over the points at 0.1 < c < 0.9 (d their distance to those
+    centroids): the logistic profile c = 1 / (1 + exp(-d / eps)) read back; the cells are those the level crosses.
+    A logistic tail whose values all stay PLATEAU_TOLERANCE short of its ideal ends within eps ln(999) = 6.9 eps
+    of its contour: a tail cut by the domain, or a crest, never holds a fifth of its side beyond REACH_EPS eps.
+    """
+    from scipy.spatial import cKDTree
+
+    c = np.asarray(c_point, dtype=np.float64)
+    a = mesh.incidence
+    crossed = np.flatnonzero((a @ (c < level) > 0) & (a @ (c > level) > 0))
+    if crossed.size == 0:
+        return True  # no contour: nothing reaches the side
+    tree = cKDTree(mesh.cell_centroids[crossed])
+    at = mesh.coordinates
+    ramp = np.flatnonzero((c > 0.1) & (c < 0.9))
+    eps = 0.0
+    if ramp.size:
+        distance = tree.query(at[ramp])[0]
+        eps = float(np.median(distance / np.abs(np.log(c[ramp] / (1.0 - c[ramp])))))
+    reach = max(REACH_EPS * eps, REACH_CELLS * float(np.median(mesh.cell_sizes_of(crossed))))
+    points = np.flatnonzero(finite)[mask]
+    far = np.isinf(tree.query(at[points], distance_upper_bound=reach)[0])
+    volume = point_volumes(mesh)[points]
+    return float(volume[far].sum()) >= PLATEAU_SHARE * float(volume.sum())
 
 
 def point_volumes(mesh) -> np.ndarray:
