@@ -149,8 +149,9 @@ def _beyond_reach(c_point: np.ndarray, level: float, mesh, mask: np.ndarray, fin
     """Whether :data:`PLATEAU_SHARE` of a side (by the points' volumes) lies farther than the interface's reach,
     max(REACH_EPS eps, REACH_CELLS cells), from the centroids of the cells the level crosses.
 
-    eps is the median of d / |ln(c / (1 - c))| over the points at 0.1 < c < 0.9 (d their distance to those
-    centroids): the logistic profile c = 1 / (1 + exp(-d / eps)) read back; the cells are those the level crosses.
+    eps is the median of d / |logit c - logit level| over the points at 0.1 < c < 0.9 clear of the level (d their
+    distance to those centroids, logit c = ln(c / (1 - c))): the logistic profile c = 1 / (1 + exp(-d / eps)) read
+    back (cells and centroids stand for the contour: half a cell of error, within the REACH_CELLS floor).
     A logistic tail whose values all stay PLATEAU_TOLERANCE short of its ideal ends within eps ln(999) = 6.9 eps
     of its contour: a tail cut by the domain, or a crest, never holds a fifth of its side beyond REACH_EPS eps.
     """
@@ -163,11 +164,12 @@ def _beyond_reach(c_point: np.ndarray, level: float, mesh, mask: np.ndarray, fin
         return True  # no contour: nothing reaches the side
     tree = cKDTree(mesh.cell_centroids[crossed])
     at = mesh.coordinates
-    ramp = np.flatnonzero((c > 0.1) & (c < 0.9))
+    with np.errstate(divide="ignore", invalid="ignore"):
+        logit = np.log(c / (1.0 - c)) - np.log(np.clip(level, 0.01, 0.99) / (1.0 - np.clip(level, 0.01, 0.99)))
+    ramp = np.flatnonzero((c > 0.1) & (c < 0.9) & (np.abs(logit) > 0.4))  # 0.4: c 0.1 off the level at 0.5
     eps = 0.0
     if ramp.size:
-        distance = tree.query(at[ramp])[0]
-        eps = float(np.median(distance / np.abs(np.log(c[ramp] / (1.0 - c[ramp])))))
+        eps = float(np.median(tree.query(at[ramp])[0] / np.abs(logit[ramp])))
     reach = max(REACH_EPS * eps, REACH_CELLS * float(np.median(mesh.cell_sizes_of(crossed))))
     points = np.flatnonzero(finite)[mask]
     far = np.isinf(tree.query(at[points], distance_upper_bound=reach)[0])
