@@ -52,11 +52,16 @@ def bulk_plateaus(c_point: np.ndarray, level: float, mesh=None) -> tuple[float, 
         lies more than three spreads off the ideal and moved at most three
         spreads (a Cahn-Hilliard matrix at 0.03 +- 0.005 while coarsening).
         A side whose values all stay more than ``PLATEAU_TOLERANCE`` short of
-        its ideal keeps its bulk where half the side lies within 0.05 of it
-        and a fifth (by volume, given the mesh) within 0.01: a plateau's
-        bulk never lies beyond its side's own values, however wide its
-        spread; the crest of a profile or its tail cut off by the domain
-        (less of the side near it) still reads the ideal.
+        its ideal keeps its bulk where half the side lies within 0.05 of it,
+        a fifth (by volume) within 0.01 and a fifth (by volume) beyond the
+        interface's reach, max(8 eps, 4 cells) from its contour
+        (:func:`_beyond_reach`): a plateau's bulk never lies beyond its
+        side's own values, however wide its spread; the crest of a filament
+        or a bump, or a profile's tail cut off by the domain, lies within
+        that reach and still reads the ideal. Without the mesh, such a side
+        must hold 0.6 of its values within 0.01 of the bulk (a cut logistic
+        tail holds at most 0.42) and the bulk lie nearer its ideal than the
+        level (a crest just above the level holds all its values near it).
         ``(0.0, 1.0)`` when both lie within ``PLATEAU_TOLERANCE`` (1e-3) of
         0 and 1.
     tail : float
