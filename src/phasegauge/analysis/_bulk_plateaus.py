@@ -4,6 +4,7 @@ from __future__ import annotations
 
 import numpy as np
 
+from ..model.corners import corner_extremes, incidence_matrix
 from ._width_integrals import _TAIL
 
 __all__ = ["bulk_plateaus", "point_volumes", "PLATEAU_TOLERANCE", "PLATEAU_SHARE", "PLATEAU_BAND"]
@@ -163,8 +164,9 @@ def _beyond_reach(c_point: np.ndarray, level: float, mesh, mask: np.ndarray, fin
     from scipy.spatial import cKDTree
 
     c = np.asarray(c_point, dtype=np.float64)
-    a = mesh.incidence
-    crossed = np.flatnonzero((a @ (c < level) > 0) & (a @ (c > level) > 0))
+    ext = corner_extremes(mesh, c)  # (the mesh-wide incidence is not made for it)
+    crossed = np.flatnonzero((ext.low < level) & (ext.high > level))
+    del ext
     if crossed.size == 0:
         return True  # no contour: nothing reaches the side
     tree = cKDTree(mesh.cell_centroids[crossed])
@@ -186,7 +188,7 @@ def point_volumes(mesh) -> np.ndarray:
     """Each point's share of the mesh's volume: every cell's measure split evenly among its corners
     (made once a mesh)."""
     def compute():
-        a = mesh.incidence
+        a = incidence_matrix(mesh)  # made for this and not kept on the mesh (12 bytes a corner)
         corners = np.asarray(a.sum(axis=1)).ravel()
         return a.T @ (mesh.cell_measures / np.maximum(corners, 1))
 
