@@ -4,6 +4,7 @@ from __future__ import annotations
 
 import numpy as np
 
+from ..model.corners import corner_extremes, incidence_matrix
 from ._width_integrals import _TAIL
 
 __all__ = ["bulk_plateaus", "point_volumes", "PLATEAU_TOLERANCE", "PLATEAU_SHARE", "PLATEAU_BAND"]
@@ -14,6 +15,11 @@ PLATEAU_TOLERANCE = 1e-3
 #: :data:`PLATEAU_BAND` of it (see :func:`bulk_plateaus`)
 PLATEAU_SHARE = 0.2
 PLATEAU_BAND = 0.01
+#: a side whose values never reach its ideal keeps its own bulk only beyond the interface's reach, this many
+#: eps or cells from the contour (with a mesh), or with this share of it within PLATEAU_BAND of the bulk (without)
+REACH_EPS = 8.0
+REACH_CELLS = 4.0
+UNREACHED_SHARE = 0.6
 
 
 def bulk_plateaus(c_point: np.ndarray, level: float, mesh=None) -> tuple[float, float, float]:
@@ -47,11 +53,16 @@ def bulk_plateaus(c_point: np.ndarray, level: float, mesh=None) -> tuple[float, 
         lies more than three spreads off the ideal and moved at most three
         spreads (a Cahn-Hilliard matrix at 0.03 +- 0.005 while coarsening).
         A side whose values all stay more than ``PLATEAU_TOLERANCE`` short of
-        its ideal keeps its bulk where half the side lies within 0.05 of it
-        and a fifth (by volume, given the mesh) within 0.01: a plateau's
-        bulk never lies beyond its side's own values, however wide its
-        spread; the crest of a profile or its tail cut off by the domain
-        (less of the side near it) still reads the ideal.
+        its ideal keeps its bulk where half the side lies within 0.05 of it,
+        a fifth (by volume) within 0.01 and a fifth (by volume) beyond the
+        interface's reach, max(8 eps, 4 cells) from its contour
+        (:func:`_beyond_reach`): a plateau's bulk never lies beyond its
+        side's own values, however wide its spread; the crest of a filament
+        or a bump, or a profile's tail cut off by the domain, lies within
+        that reach and still reads the ideal. Without the mesh, such a side
+        must hold 0.6 of its values within 0.01 of the bulk (a cut logistic
+        tail holds at most 0.42) and the bulk lie nearer its ideal than the
+        level (a crest just above the level holds all its values near it).
         ``(0.0, 1.0)`` when both lie within ``PLATEAU_TOLERANCE`` (1e-3) of
         0 and 1.
     tail : float
@@ -102,7 +113,14 @@ def bulk_plateaus(c_point: np.ndarray, level: float, mesh=None) -> tuple[float, 
         # distance from 0, is not at 0 when no value of it lies below 0.0135); the crest of a profile, or the
         # tail of one cut off by the domain, holds too little of its side near g and still reads the ideal
         short = (float(side.min()) - ideal if below else ideal - float(side.max())) > PLATEAU_TOLERANCE
-        unreached = short and near.size >= 0.5 * side.size and _holds(side, g, mesh, mask, finite)
+        # a crest or a cut tail piles its values near its contour: with a mesh a fifth of the side must lie beyond
+        # the interface's reach (:func:`_beyond_reach`); without one, UNREACHED_SHARE of it within PLATEAU_BAND of g
+        # and g nearer its ideal than the level (a logistic tail cut short of 1e-3 holds at most 0.42 of its side
+        # within 0.01 of g, a matrix 0.83 and more; a crest 0.05 above the level holds all of it)
+        unreached = (short and near.size >= 0.5 * side.size
+                     and (_holds(side, g, mesh, mask, finite) and _beyond_reach(c_point, level, mesh, mask, finite)
+                          if mesh is not None else _holds(side, g, None, mask, finite, UNREACHED_SHARE)
+                          and abs(g - ideal) < abs(g - level)))
         # beyond 0.25 of the ideal, a plateau must hold a fifth of its side (a bulk, as a partially
         # miscible pair's phases sit at 0.3 and 0.7; not the top of a drop that never reached its bulk)
         held = abs(g - ideal) <= 0.25 or unreached or (strict and _holds(side, g, mesh, mask, finite))
@@ -121,22 +139,56 @@ def bulk_plateaus(c_point: np.ndarray, level: float, mesh=None) -> tuple[float, 
     return low, high, tail
 
 
-def _holds(side: np.ndarray, g: float, mesh, mask: np.ndarray, finite: np.ndarray) -> bool:
-    """Whether :data:`PLATEAU_SHARE` of a side (its values ``side``, where ``mask`` holds among the finite
-    points) lies within :data:`PLATEAU_BAND` of ``g``: by the points' volumes given the mesh, else by count."""
+def _holds(side: np.ndarray, g: float, mesh, mask: np.ndarray, finite: np.ndarray,
+           share: float = PLATEAU_SHARE) -> bool:
+    """Whether ``share`` of a side (its values ``side``, where ``mask`` holds among the finite points) lies
+    within :data:`PLATEAU_BAND` of ``g``: by the points' volumes given the mesh, else by count."""
     near = np.abs(side - g) <= PLATEAU_BAND
     if mesh is None:
-        return np.count_nonzero(near) >= PLATEAU_SHARE * side.size
+        return np.count_nonzero(near) >= share * side.size
     volume = point_volumes(mesh)
     volume = (volume if finite.all() else volume[finite])[mask]
-    return float(volume[near].sum()) >= PLATEAU_SHARE * float(volume.sum())
+    return float(volume[near].sum()) >= share * float(volume.sum())
+
+
+def _beyond_reach(c_point: np.ndarray, level: float, mesh, mask: np.ndarray, finite: np.ndarray) -> bool:
+    """Whether :data:`PLATEAU_SHARE` of a side (by the points' volumes) lies farther than the interface's reach,
+    max(REACH_EPS eps, REACH_CELLS cells), from the centroids of the cells the level crosses.
+
+    eps is the median of d / |logit c - logit level| over the points at 0.1 < c < 0.9 clear of the level (d their
+    distance to those centroids, logit c = ln(c / (1 - c))): the logistic profile c = 1 / (1 + exp(-d / eps)) read
+    back (cells and centroids stand for the contour: half a cell of error, within the REACH_CELLS floor).
+    A logistic tail whose values all stay PLATEAU_TOLERANCE short of its ideal ends within eps ln(999) = 6.9 eps
+    of its contour: a tail cut by the domain, or a crest, never holds a fifth of its side beyond REACH_EPS eps.
+    """
+    from scipy.spatial import cKDTree
+
+    c = np.asarray(c_point, dtype=np.float64)
+    ext = corner_extremes(mesh, c)  # (the mesh-wide incidence is not made for it)
+    crossed = np.flatnonzero((ext.low < level) & (ext.high > level))
+    del ext
+    if crossed.size == 0:
+        return True  # no contour: nothing reaches the side
+    tree = cKDTree(mesh.cell_centroids[crossed])
+    at = mesh.coordinates
+    with np.errstate(divide="ignore", invalid="ignore"):
+        logit = np.log(c / (1.0 - c)) - np.log(np.clip(level, 0.01, 0.99) / (1.0 - np.clip(level, 0.01, 0.99)))
+    ramp = np.flatnonzero((c > 0.1) & (c < 0.9) & (np.abs(logit) > 0.4))  # 0.4: c 0.1 off the level at 0.5
+    eps = 0.0
+    if ramp.size:
+        eps = float(np.median(tree.query(at[ramp])[0] / np.abs(logit[ramp])))
+    reach = max(REACH_EPS * eps, REACH_CELLS * float(np.median(mesh.cell_sizes_of(crossed))))
+    points = np.flatnonzero(finite)[mask]
+    far = np.isinf(tree.query(at[points], distance_upper_bound=reach)[0])
+    volume = point_volumes(mesh)[points]
+    return float(volume[far].sum()) >= PLATEAU_SHARE * float(volume.sum())
 
 
 def point_volumes(mesh) -> np.ndarray:
     """Each point's share of the mesh's volume: every cell's measure split evenly among its corners
     (made once a mesh)."""
     def compute():
-        a = mesh.incidence
+        a = incidence_matrix(mesh)  # made for this and not kept on the mesh (12 bytes a corner)
         corners = np.asarray(a.sum(axis=1)).ravel()
         return a.T @ (mesh.cell_measures / np.maximum(corners, 1))
 
