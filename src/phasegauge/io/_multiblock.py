@@ -370,15 +370,17 @@ def own_time(path: str, *, decode: bool = True):
     if name is None:
         return {}
     array = arrays[name]
-    if array.get("format") == "ascii":
+    if array.get("format", "ascii") == "ascii":  # no format: text, as some writers leave it (VTK reads none)
         dtype = np.float32 if array.get("type") == "Float32" else np.float64
+        words = (array.text or "").split()[:1]
         try:
-            return {name: np.array((array.text or "").split()[:1], dtype=dtype)}
+            return {name: np.array(words, dtype=dtype)} if words else {}
         except ValueError:  # not a number: said by the time's own check
             return {name: np.array([(array.text or "").strip()], dtype=object)}
     if not decode:
         return TIME_NEEDS_FULL_READ
-    return _decoded_field_data(root, name)
+    decoded = _decoded_field_data(root, name)
+    return decoded if any(np.size(v) for v in decoded.values()) else {}  # an empty decode is no time
 
 
 def _decoded_field_data(root, name: str) -> dict:
@@ -414,6 +416,8 @@ def _with_own_time(mesh, path: str, block: str):
         return mesh
     field_data = dict(mesh.field_data or {})
     time = time_from_field_data(own, path)
+    if time is None:
+        return mesh
     theirs = time_from_field_data(field_data, path)
     if theirs is not None and abs(theirs - time) > max(time.resolution, theirs.resolution):
         import warnings
