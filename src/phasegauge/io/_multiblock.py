@@ -408,7 +408,8 @@ def _decoded_field_data(root, name: str) -> dict:
 
 def _with_own_time(mesh, path: str, block: str):
     """``mesh`` (the step's volume blocks read) with the time the multiblock file stores itself, when it
-    stores one, in place of the blocks'; a :class:`MeshWarning` when the two differ."""
+    stores one, in place of the blocks'; where the two differ, ``mesh.time_disagreement`` says so (the series
+    warns of it where the step's time is the file's)."""
     from ._formats import TIME_ARRAY_NAMES, time_from_field_data
 
     own = own_time(path)
@@ -420,14 +421,9 @@ def _with_own_time(mesh, path: str, block: str):
         return mesh
     theirs = time_from_field_data(field_data, path)
     if theirs is not None and abs(theirs - time) > max(time.resolution, theirs.resolution):
-        import warnings
-
-        from ..errors import MeshWarning
-
-        warnings.warn(MeshWarning(f"the multiblock file stores time {time:.10g} and its block "
-                                  f"{block or 'first'} stores {theirs:.10g}: the multiblock file's time is used; "
-                                  "write one time, or give a 'time,path' listing whose times are used instead",
-                                  where=path), stacklevel=3)
+        # said by the series where the files' times are used (a listing's times make it moot)
+        mesh.time_disagreement = (f"the multiblock file stores time {time:.10g} and its block {block or 'first'} "
+                                  f"stores {theirs:.10g}: the multiblock file's time is used")
     for name in TIME_ARRAY_NAMES:
         field_data.pop(name, None)
     field_data.update(own)
