@@ -7,6 +7,8 @@ temperature); the blocks' fields the messages must name are those VTK's own read
 (``pyvista.read``).
 """
 
+import warnings
+
 import numpy as np
 import pytest
 import pyvista
@@ -73,11 +75,34 @@ def test_a_cell_copy_one_block_lacks_is_not_swapped_for_the_point_copy_silently(
     read = pyvista.read(path)
     assert "alpha" in read["lower"].cell_data and "alpha" not in read["upper"].cell_data
     assert "alpha" in read["upper"].point_data
+    step = Series(path).read(0)
     with pytest.warns(MeshWarning, match=r"field 'alpha': its copy on cells is left out, as block upper .* the copy "
                                          r"on points is read; .*--field-location point"):
-        step = Series(path).read(0)
-    _, location = select_field(step.fields, "alpha", where=step.info.where)
+        _, location = select_field(step.fields, "alpha", where=step.info.where)
     assert location == "point"
+    with warnings.catch_warnings():
+        warnings.simplefilter("error")  # the point copy chosen: no word
+        assert select_field(step.fields, "alpha", where=step.info.where, location="point")[1] == "point"
+
+
+def test_a_copy_left_out_of_a_field_not_measured_or_not_preferred_gives_no_word(tmp_path, recwarn):
+    lower, upper = _region(0.0), _region(0.5)
+    # an unrelated field on cells and points in one block, on points only in the other
+    lower.point_data["p"], upper.point_data["p"] = lower.points[:, 2], upper.points[:, 2]
+    lower.cell_data["p"] = lower.cell_centers().points[:, 2]
+    # the measured field on cells in both blocks, on points too in one (its point copy is the one left out)
+    upper.point_data["alpha"] = upper.cell_data_to_point_data().point_data["alpha"]
+    blocks = pyvista.MultiBlock()
+    blocks["lower"], blocks["upper"] = lower, upper
+    blocks.save(tmp_path / "unrelated.vtm")
+    read = pyvista.read(tmp_path / "unrelated.vtm")  # VTK's reader: alpha on cells in both, p on cells in one
+    assert "alpha" in read["lower"].cell_data and "alpha" in read["upper"].cell_data
+    assert "p" in read["lower"].cell_data and "p" not in read["upper"].cell_data and "p" in read["upper"].point_data
+    step = Series(tmp_path / "unrelated.vtm").read(0)
+    _, location = select_field(step.fields, "alpha", where=step.info.where)
+    assert location == "cell"
+    assert not [w for w in recwarn if "left out" in str(w.message)]
+    assert step.fields.copies_left_out.keys() == {"p"}  # kept for a run measuring p
 
 
 def test_a_field_every_block_holds_alike_gives_no_word(tmp_path, recwarn):
@@ -88,3 +113,13 @@ def test_a_field_every_block_holds_alike_gives_no_word(tmp_path, recwarn):
     step = Series(path).read(0)
     assert "alpha" in step.fields.cell_data and not step.fields.left_out
     assert not [w for w in recwarn if "left out" in str(w.message)]
+
+
+def test_a_velocity_read_from_its_point_copy_in_place_of_a_lost_cell_copy_is_warned_of():
+    from phasegauge.io import StepFields
+    from phasegauge.model.fields import vector_field
+
+    fields = StepFields(point_data={"U": np.ones((4, 3))}, copies_left_out={"U": "block b holds no 'U' on cells"})
+    with pytest.warns(MeshWarning, match=r"velocity field 'U': its copy on cells is left out, as block b") as caught:
+        _, location = vector_field(fields, "U", where="case.vtm, step 0")
+    assert location == "point" and "--field-location" not in str(caught[0].message)  # an option of the phase only

@@ -165,7 +165,7 @@ def read_multiblock(path: str):
                  for name in pieces[0].cell_data if _shared(pieces, "cell_data", name)}
     joined = new_mesh(points, cells, point_data=point_data, cell_data=cell_data,
                       field_data=dict(pieces[0].field_data or {}))
-    joined.fields_left_out = fields_left_out(pieces, named, path, point_data, cell_data)
+    joined.fields_left_out, joined.copies_left_out = fields_left_out(pieces, named, path, point_data, cell_data)
     joined = _with_own_time(joined, path, named[0][0])
     joined.block_sizes = block_sizes  # points merged across blocks are the join, not duplicates
     joined.cell_rows = rows
@@ -293,11 +293,12 @@ def seams_made_equal(points: list, *, single_precision: bool = False) -> np.ndar
     return joined
 
 
-def fields_left_out(pieces: list, named: list, path: str, point_data: dict, cell_data: dict) -> dict:
+def fields_left_out(pieces: list, named: list, path: str, point_data: dict, cell_data: dict) -> tuple:
     """The fields some blocks hold and the joined mesh does not (not held by every block, or with other
     components), each with why and the fix: ``{name: (why, fix)}``, which the message of a field not
-    found gives. A field whose copy on cells (or points) is left out while its other copy is kept is
-    named in a :class:`MeshWarning`: the run would read the other copy without a word."""
+    found gives; and the fields whose copy on cells is left out while their copy on points is kept,
+    ``{name: why}``: :func:`phasegauge.model.fields.named_field` warns when it reads that point copy in
+    place of the cell copy it prefers (a point copy left out is not said: the cell copy is read anyway)."""
     names = [(name or os.path.splitext(os.path.basename(file))[0]) for name, file in named]
     on = {"cells": [set(p.cell_data) for p in pieces], "points": [set(p.point_data) for p in pieces]}
     joined = {"cells": cell_data, "points": point_data}
@@ -308,7 +309,7 @@ def fields_left_out(pieces: list, named: list, path: str, point_data: dict, cell
         return f"{names[block]}: " + (", ".join(f"{f} on {w}" for f, w in sorted(where.items())) or "no fields")
 
     shown = "; ".join(held(k) for k in range(len(pieces)))
-    out = {}
+    out, swapped = {}, {}
     for field in sorted(set().union(*on["cells"], *on["points"])):
         lost = [w for w in ("cells", "points") if any(field in h for h in on[w]) and field not in joined[w]]
         if not lost:
@@ -327,16 +328,11 @@ def fields_left_out(pieces: list, named: list, path: str, point_data: dict, cell
                    f"'{os.path.relpath(named[having[0]][1])}' with a * for the step) or a 'time,path' listing")
         kept = "points" if where == "cells" else "cells"
         if field in joined[kept]:
-            import warnings
-
-            from ..errors import MeshWarning
-
-            warnings.warn(MeshWarning(f"field '{field}': its copy on {where} is left out, as {why}; the copy on "
-                                      f"{kept} is read; write it on {where} in every block, or give --field-location "
-                                      f"{kept[:-1]} to choose that copy", where=path), stacklevel=4)
+            if where == "cells":
+                swapped[field] = why
             continue
         out[field] = (why, fix)
-    return out
+    return out, swapped
 
 
 def _shared(pieces, kind: str, name: str) -> bool:
