@@ -300,6 +300,8 @@ def fields_left_out(pieces: list, named: list, path: str, point_data: dict, cell
     ``{name: why}``: :func:`phasegauge.model.fields.named_field` warns when it reads that point copy in
     place of the cell copy it prefers (a point copy left out is not said: the cell copy is read anyway)."""
     names = [(name or os.path.splitext(os.path.basename(file))[0]) for name, file in named]
+    if len(set(names)) < len(names):  # datasets named alike in several regions: named by their files
+        names = [os.path.relpath(file, os.path.dirname(os.path.abspath(path))) for _, file in named]
     on = {"cells": [set(p.cell_data) for p in pieces], "points": [set(p.point_data) for p in pieces]}
     joined = {"cells": cell_data, "points": point_data}
 
@@ -323,9 +325,7 @@ def fields_left_out(pieces: list, named: list, path: str, point_data: dict, cell
             lacking = [names[k] for k in range(len(pieces)) if k not in having]
             why = (f"block{'s' if len(lacking) > 1 else ''} {', '.join(lacking)} of the multiblock file "
                    f"hold{'' if len(lacking) > 1 else 's'} no '{field}' on {where} ({shown})")
-            fix = (f"measure the block{'s' if len(having) > 1 else ''} holding it alone: give "
-                   f"{'their' if len(having) > 1 else 'its'} files as a quoted glob (such as "
-                   f"'{os.path.relpath(named[having[0]][1])}' with a * for the step) or a 'time,path' listing")
+            fix = _holding_blocks_fix(path, [named[k][1] for k in having], [names[k] for k in having])
         kept = "points" if where == "cells" else "cells"
         if field in joined[kept]:
             if where == "cells":
@@ -333,6 +333,23 @@ def fields_left_out(pieces: list, named: list, path: str, point_data: dict, cell
             continue
         out[field] = (why, fix)
     return out, swapped
+
+
+def _holding_blocks_fix(path: str, files: list, names: list) -> str:
+    """How to measure only the blocks of a multiblock step that hold a field: a glob of one block's files
+    would make each other block a step, and would lose the time the ``.vtm`` files store."""
+    from ._formats import time_from_field_data
+
+    copies = f"copies of the .vtm files naming only block{'s' if len(names) > 1 else ''} {', '.join(names)}"
+    if len(files) > 1:
+        return f"measure the blocks holding it alone: give {copies} (each keeps its step's time)"
+    time = time_from_field_data(own_time(path), path)
+    if time is None:  # the block files' own times (or none) are the steps'
+        return (f"measure the block holding it alone: give its files as a quoted glob (such as "
+                f"'{os.path.relpath(files[0])}' with a * for the step), or {copies}")
+    line = f"{time:.10g},{os.path.relpath(files[0], os.path.dirname(os.path.abspath(path)))}"
+    return (f"measure the block holding it alone: give a 'time,path' listing of its files with the .vtm files' "
+            f"times, beside them (one line a step, as '{line}'), or {copies}")
 
 
 def _shared(pieces, kind: str, name: str) -> bool:
