@@ -83,6 +83,11 @@ def test_a_cell_copy_one_block_lacks_is_not_swapped_for_the_point_copy_silently(
     with warnings.catch_warnings():
         warnings.simplefilter("error")  # the point copy chosen: no word
         assert select_field(step.fields, "alpha", where=step.info.where, location="point")[1] == "point"
+    from phasegauge.io.describe import describe_series, format_description
+
+    described = describe_series(str(path))  # inspect names the lost cell copy
+    assert set(described["cell_copies_left_out"]) == {"alpha"}
+    assert "alpha            cell copy not read: block upper" in format_description(described)
 
 
 def test_a_copy_left_out_of_a_field_not_measured_or_not_preferred_gives_no_word(tmp_path, recwarn):
