@@ -7,6 +7,8 @@ temperature); the blocks' fields the messages must name are those VTK's own read
 (``pyvista.read``).
 """
 
+import warnings
+
 import numpy as np
 import pytest
 import pyvista
@@ -73,11 +75,39 @@ def test_a_cell_copy_one_block_lacks_is_not_swapped_for_the_point_copy_silently(
     read = pyvista.read(path)
     assert "alpha" in read["lower"].cell_data and "alpha" not in read["upper"].cell_data
     assert "alpha" in read["upper"].point_data
+    step = Series(path).read(0)
     with pytest.warns(MeshWarning, match=r"field 'alpha': its copy on cells is left out, as block upper .* the copy "
                                          r"on points is read; .*--field-location point"):
-        step = Series(path).read(0)
-    _, location = select_field(step.fields, "alpha", where=step.info.where)
+        _, location = select_field(step.fields, "alpha", where=step.info.where)
     assert location == "point"
+    with warnings.catch_warnings():
+        warnings.simplefilter("error")  # the point copy chosen: no word
+        assert select_field(step.fields, "alpha", where=step.info.where, location="point")[1] == "point"
+    from phasegauge.io.describe import describe_series, format_description
+
+    described = describe_series(str(path))  # inspect names the lost cell copy
+    assert set(described["cell_copies_left_out"]) == {"alpha"}
+    assert "alpha            cell copy not read: block upper" in format_description(described)
+
+
+def test_a_copy_left_out_of_a_field_not_measured_or_not_preferred_gives_no_word(tmp_path, recwarn):
+    lower, upper = _region(0.0), _region(0.5)
+    # an unrelated field on cells and points in one block, on points only in the other
+    lower.point_data["p"], upper.point_data["p"] = lower.points[:, 2], upper.points[:, 2]
+    lower.cell_data["p"] = lower.cell_centers().points[:, 2]
+    # the measured field on cells in both blocks, on points too in one (its point copy is the one left out)
+    upper.point_data["alpha"] = upper.cell_data_to_point_data().point_data["alpha"]
+    blocks = pyvista.MultiBlock()
+    blocks["lower"], blocks["upper"] = lower, upper
+    blocks.save(tmp_path / "unrelated.vtm")
+    read = pyvista.read(tmp_path / "unrelated.vtm")  # VTK's reader: alpha on cells in both, p on cells in one
+    assert "alpha" in read["lower"].cell_data and "alpha" in read["upper"].cell_data
+    assert "p" in read["lower"].cell_data and "p" not in read["upper"].cell_data and "p" in read["upper"].point_data
+    step = Series(tmp_path / "unrelated.vtm").read(0)
+    _, location = select_field(step.fields, "alpha", where=step.info.where)
+    assert location == "cell"
+    assert not [w for w in recwarn if "left out" in str(w.message)]
+    assert step.fields.copies_left_out.keys() == {"p"}  # kept for a run measuring p
 
 
 def test_a_field_every_block_holds_alike_gives_no_word(tmp_path, recwarn):
@@ -88,3 +118,74 @@ def test_a_field_every_block_holds_alike_gives_no_word(tmp_path, recwarn):
     step = Series(path).read(0)
     assert "alpha" in step.fields.cell_data and not step.fields.left_out
     assert not [w for w in recwarn if "left out" in str(w.message)]
+
+
+def test_a_velocity_read_from_its_point_copy_in_place_of_a_lost_cell_copy_is_warned_of():
+    from phasegauge.io import StepFields
+    from phasegauge.model.fields import vector_field
+
+    fields = StepFields(point_data={"U": np.ones((4, 3))}, copies_left_out={"U": "block b holds no 'U' on cells"})
+    with pytest.warns(MeshWarning, match=r"velocity field 'U': its copy on cells is left out, as block b") as caught:
+        _, location = vector_field(fields, "U", where="case.vtm, step 0")
+    assert location == "point" and "--field-location" not in str(caught[0].message)  # an option of the phase only
+
+
+def test_the_way_out_of_a_field_one_region_lacks_keeps_the_vtm_time(tmp_path):
+    """The fix offered works: a listing of the fluid block's files with the .vtm times, or a .vtm naming it only."""
+    import re
+
+    paths = []
+    for k, t in enumerate((0.0, 0.05, 0.1)):
+        fluid, solid = _region(0.0), _region(0.5)
+        del solid.cell_data["alpha"]
+        regions = pyvista.MultiBlock()
+        regions["fluid"], regions["solid"] = fluid, solid
+        regions.field_data["TimeValue"] = [t]
+        regions.save(tmp_path / f"case_{k}.vtm")
+        paths.append(tmp_path / f"case_{k}.vtm")
+    times = [float(pyvista.read(p).field_data["TimeValue"][0]) for p in paths]  # VTK's reader
+    step = Series(paths[1]).read(0)
+    with pytest.raises(FieldNotFoundError) as caught:
+        select_field(step.fields, "alpha", where=step.info.where)
+    fix = caught.value.fix
+    assert "'0.05,case_1/case_1_0.vtu'" in fix and "copies of the .vtm files naming only block fluid" in fix
+    (tmp_path / "fluid.steps").write_text("".join(f"{t},case_{k}/case_{k}_0.vtu\n" for k, t in enumerate(times)))
+    assert Series(tmp_path / "fluid.steps").times.tolist() == times
+    (tmp_path / "copies").mkdir()
+    for k, p in enumerate(paths):  # the .vtm without its solid block
+        text = re.sub(r'\s*<DataSet[^>]*name="solid"[^>]*/>', "", p.read_text())
+        (tmp_path / "copies" / p.name).write_text(text.replace(f'file="case_{k}/', f'file="../case_{k}/'))
+    copies = Series(tmp_path / "copies")
+    assert copies.times.tolist() == times
+    assert "alpha" in copies.read(1).fields.cell_data
+
+
+def test_several_blocks_holding_a_field_are_named_for_a_vtm_of_their_own(tmp_path):
+    path = tmp_path / "three.vtm"
+    blocks = pyvista.MultiBlock()
+    blocks["A"], blocks["B"], blocks["C"] = _region(0.0), _region(0.5), _region(1.0)
+    del blocks["C"].cell_data["alpha"]
+    blocks.save(path)
+    step = Series(path).read(0)
+    with pytest.raises(FieldNotFoundError, match=r"block C of the multiblock") as caught:
+        select_field(step.fields, "alpha", where=step.info.where)
+    assert caught.value.fix == "measure the blocks holding it alone: give copies of the .vtm files naming only " \
+                               "blocks A, B (each keeps its step's time)"
+    assert "glob" not in caught.value.fix  # a glob of several blocks' files makes each block a step
+
+
+def test_datasets_named_alike_in_several_regions_are_named_by_their_files(tmp_path):
+    """foamToVTK's layout of several regions: each region block holds a dataset named 'internal'."""
+    _fluid_and_solid(tmp_path / "cht.vtm")
+    (tmp_path / "regions.vtm").write_text(
+        '<?xml version="1.0"?>\n<VTKFile type="vtkMultiBlockDataSet" version="1.0">\n<vtkMultiBlockDataSet>\n'
+        '<Block name="fluid"><DataSet name="internal" file="cht/cht_0.vtu"/></Block>\n'
+        '<Block name="solid"><DataSet name="internal" file="cht/cht_1.vtu"/></Block>\n'
+        '</vtkMultiBlockDataSet>\n</VTKFile>\n')
+    read = pyvista.read(tmp_path / "regions.vtm")  # VTK's reader: the fluid region holds alpha, the solid T
+    assert list(read["fluid"][0].cell_data) == ["alpha"] and list(read["solid"][0].cell_data) == ["T"]
+    step = Series(tmp_path / "regions.vtm").read(0)
+    with pytest.raises(FieldNotFoundError) as caught:
+        select_field(step.fields, "alpha", where=step.info.where)
+    assert "block cht/cht_1.vtu of the multiblock file holds no 'alpha' on cells (cht/cht_0.vtu: alpha on cells; " \
+           "cht/cht_1.vtu: T on cells)" in caught.value.what

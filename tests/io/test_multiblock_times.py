@@ -79,3 +79,52 @@ def test_the_same_time_in_vtm_and_block_gives_no_warning(tmp_path, recwarn):
     path = _step(tmp_path / "case.vtm", 0.05, block_time=0.05)
     assert Series(path).read(0).time == 0.05
     assert not [w for w in recwarn if issubclass(w.category, MeshWarning)]
+
+
+def _paraviewo_step(folder, k, time):
+    """A step as PolyFEM's paraviewo ``VTMWriter`` writes it: the ``.vtm``'s TimeValue is text with no
+    ``format`` (nor ``NumberOfTuples``), and its block, written by VTK, stores the same time."""
+    volume = _volume(time)
+    volume.field_data["TimeValue"] = [time]
+    (folder / f"step_{k}").mkdir()
+    volume.save(folder / f"step_{k}" / "volume.vtu")
+    path = folder / f"step_{k}.vtm"
+    path.write_text('<?xml version="1.0" encoding="UTF-8"?>\n<VTKFile type="vtkMultiBlockDataSet" version="1.0">\n'
+                    f'  <vtkMultiBlockDataSet>\n    <DataSet name="data" index="0" file="step_{k}/volume.vtu"/>\n'
+                    '  </vtkMultiBlockDataSet>\n  <FieldData>\n'
+                    f'    <DataArray type="Float32" Name="TimeValue">{time:f}</DataArray>\n'
+                    '  </FieldData>\n</VTKFile>\n')
+    return path
+
+
+def test_a_vtm_time_with_no_format_is_text(tmp_path, recwarn):
+    from phasegauge.io._multiblock import own_time
+
+    paths = [_paraviewo_step(tmp_path, k, t) for k, t in enumerate(TIMES)]
+    # VTK's reader decodes nothing from the .vtm's own array (no format), so the references are the blocks'
+    # TimeValue as VTK reads them and the .vtm's text
+    assert np.asarray(pyvista.read(paths[1]).field_data["TimeValue"]).size == 0
+    blocks = [float(pyvista.read(tmp_path / f"step_{k}" / "volume.vtu").field_data["TimeValue"][0])
+              for k in range(3)]
+    texts = [float(p.read_text().split('Name="TimeValue">')[1].split("<")[0]) for p in paths]
+    assert blocks == texts == list(TIMES)
+    assert float(own_time(paths[1])["TimeValue"][0]) == pytest.approx(0.05, abs=1e-8)  # Float32's digits
+    series = Series(tmp_path)
+    assert series.times.tolist() == pytest.approx(texts, abs=1e-8)
+    assert [series.read(k).time for k in range(3)] == pytest.approx(blocks, abs=1e-8)
+    assert Series(paths[2]).read(0).time == pytest.approx(0.1, abs=1e-8)  # one step given alone
+    assert not [w for w in recwarn if issubclass(w.category, MeshWarning)]  # the .vtm and its block agree
+
+
+def test_an_empty_vtm_time_is_no_time(tmp_path):
+    from phasegauge.io._multiblock import own_time
+
+    path = _step(tmp_path / "case.vtm", 0.05, block_time=0.05)
+    text = path.read_text()
+    start, end = text.index("<DataArray"), text.index("</DataArray>") + len("</DataArray>")
+    path.write_text(text[:start] + '<DataArray type="Float64" Name="TimeValue" format="binary"></DataArray>'
+                    + text[end:])
+    assert np.asarray(pyvista.read(path).field_data["TimeValue"]).size == 0  # VTK decodes nothing
+    assert own_time(path) == {}
+    assert Series(path).times.tolist() == [0.05]  # the block's time is the step's
+    assert Series(path).read(0).time == 0.05

@@ -88,3 +88,37 @@ def test_a_listing_beside_the_index_gives_the_times_without_the_warning(tmp_path
     series, found = _series_warnings(folder)
     assert series.times.tolist() == list(TIMES)
     assert not [w for w in found if "another program's index" in w.what]
+
+
+def _fluid_and_solid_steps(folder, with_time=True):
+    """Steps as VTK's multiblock writer leaves a run of a fluid and a solid region: the time in each .vtm only."""
+    folder.mkdir()
+    for k, t in enumerate(TIMES[:3]):
+        grid = pyvista.ImageData(dimensions=(5, 5, 5), spacing=(0.25,) * 3).cast_to_unstructured_grid()
+        fluid, solid = grid.copy(), grid.translate((1, 0, 0))
+        fluid.cell_data["alpha"] = np.full(fluid.n_cells, 0.5)
+        solid.cell_data["T"] = np.full(solid.n_cells, 300.0)
+        regions = pyvista.MultiBlock()
+        regions["fluid"], regions["solid"] = fluid, solid
+        if with_time:
+            regions.field_data["TimeValue"] = [t]
+        regions.save(folder / f"case_{k}.vtm")
+
+
+def test_vtm_files_storing_the_times_of_the_block_files_given_are_named(tmp_path):
+    folder = tmp_path / "cht"
+    _fluid_and_solid_steps(folder)
+    # VTK's readers: the .vtm files hold the times, the fluid block files none
+    assert [float(pyvista.read(folder / f"case_{k}.vtm").field_data["TimeValue"][0]) for k in range(3)] == \
+        list(TIMES[:3])
+    assert "TimeValue" not in pyvista.read(folder / "case_1" / "case_1_0.vtu").field_data
+    series, found = _series_warnings(str(folder / "case_*" / "case_*_0.vtu"))
+    assert series.times.tolist() == [0, 1, 2]  # the step numbers, now said
+    (named,) = [w for w in found if "store their times" in w.what]
+    assert named.what.startswith("the .vtm files beside the step files (case_0.vtm, case_1.vtm, case_2.vtm) store "
+                                 "their times, not read")
+    assert "give the .vtm files" in named.what
+    bare = tmp_path / "bare"  # .vtm files storing no time: no word
+    _fluid_and_solid_steps(bare, with_time=False)
+    _, found = _series_warnings(str(bare / "case_*" / "case_*_0.vtu"))
+    assert not [w for w in found if "store their times" in w.what]

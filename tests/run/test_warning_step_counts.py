@@ -64,6 +64,19 @@ def test_a_warning_on_every_step_of_a_multiblock_series_counts_its_steps(tmp_pat
     assert line.endswith("(and 2 more steps)")
 
 
+def test_a_block_time_disagreement_is_not_said_where_a_listing_gives_the_times(tmp_path):
+    folder = _steps(tmp_path / "run", ".vtp", block_time=5.0)
+    # VTK's reader: the .vtm stores 0.1, its block 5 (the disagreement a run without a listing warns of)
+    assert pyvista.read(folder / "case_1.vtm").field_data["TimeValue"][0] == pytest.approx(0.1)
+    assert pyvista.read(folder / "case_1" / "case_1_0.vtu").field_data["TimeValue"][0] == 5.0
+    (folder / "run.steps").write_text("0,case_0.vtm\n0.5,case_1.vtm\n1,case_2.vtm\n")
+    with warnings.catch_warnings():
+        warnings.simplefilter("ignore")
+        result = pg.measure(folder / "run.steps", "alpha")
+    assert result.steps["time"].tolist() == [0.0, 0.5, 1.0]  # the listing's
+    assert not [w for w in result.warnings if "stores time" in w]
+
+
 @pytest.mark.parametrize("suffix", [".vtu", ".vtp"])
 def test_a_patch_left_out_is_an_info_line_whatever_its_format(tmp_path, suffix):
     folder = _steps(tmp_path / "run", suffix)

@@ -90,12 +90,16 @@ class StepFields:
     left_out : dict of str to (str, str)
         Fields the file holds that were not read, with why and the fix (a multiblock file's field
         that not every block holds): the message of a field not found gives them.
+    copies_left_out : dict of str to str
+        Fields whose copy on cells was not read (not every block holds it) while their copy on points
+        was, with why: reading the point copy in its place is warned of.
     """
 
     point_data: dict = field(default_factory=dict)
     cell_data: dict = field(default_factory=dict)
     field_data: dict = field(default_factory=dict)
     left_out: dict = field(default_factory=dict)
+    copies_left_out: dict = field(default_factory=dict)
 
     def names(self) -> list:
         return sorted(set(self.point_data) | set(self.cell_data))
@@ -440,7 +444,8 @@ def step_fields(mesh: Mesh, raw, where: str, *, field_data: bool = True) -> Step
     point_data = point_fields(mesh, raw.point_data, where=where)
     cell_data = join_cell_data(mesh, raw.cell_data, where=where)
     fields = {k: np.asarray(v) for k, v in (raw.field_data or {}).items()} if field_data else {}
-    return StepFields(point_data, cell_data, fields, dict(getattr(raw, "fields_left_out", None) or {}))
+    return StepFields(point_data, cell_data, fields, dict(getattr(raw, "fields_left_out", None) or {}),
+                      dict(getattr(raw, "copies_left_out", None) or {}))
 
 
 def point_fields(mesh: Mesh, point_data: dict, where: str = "") -> dict:

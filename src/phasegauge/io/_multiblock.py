@@ -165,7 +165,7 @@ def read_multiblock(path: str):
                  for name in pieces[0].cell_data if _shared(pieces, "cell_data", name)}
     joined = new_mesh(points, cells, point_data=point_data, cell_data=cell_data,
                       field_data=dict(pieces[0].field_data or {}))
-    joined.fields_left_out = fields_left_out(pieces, named, path, point_data, cell_data)
+    joined.fields_left_out, joined.copies_left_out = fields_left_out(pieces, named, path, point_data, cell_data)
     joined = _with_own_time(joined, path, named[0][0])
     joined.block_sizes = block_sizes  # points merged across blocks are the join, not duplicates
     joined.cell_rows = rows
@@ -293,12 +293,15 @@ def seams_made_equal(points: list, *, single_precision: bool = False) -> np.ndar
     return joined
 
 
-def fields_left_out(pieces: list, named: list, path: str, point_data: dict, cell_data: dict) -> dict:
+def fields_left_out(pieces: list, named: list, path: str, point_data: dict, cell_data: dict) -> tuple:
     """The fields some blocks hold and the joined mesh does not (not held by every block, or with other
     components), each with why and the fix: ``{name: (why, fix)}``, which the message of a field not
-    found gives. A field whose copy on cells (or points) is left out while its other copy is kept is
-    named in a :class:`MeshWarning`: the run would read the other copy without a word."""
+    found gives; and the fields whose copy on cells is left out while their copy on points is kept,
+    ``{name: why}``: :func:`phasegauge.model.fields.named_field` warns when it reads that point copy in
+    place of the cell copy it prefers (a point copy left out is not said: the cell copy is read anyway)."""
     names = [(name or os.path.splitext(os.path.basename(file))[0]) for name, file in named]
+    if len(set(names)) < len(names):  # datasets named alike in several regions: named by their files
+        names = [os.path.relpath(file, os.path.dirname(os.path.abspath(path))) for _, file in named]
     on = {"cells": [set(p.cell_data) for p in pieces], "points": [set(p.point_data) for p in pieces]}
     joined = {"cells": cell_data, "points": point_data}
 
@@ -308,7 +311,7 @@ def fields_left_out(pieces: list, named: list, path: str, point_data: dict, cell
         return f"{names[block]}: " + (", ".join(f"{f} on {w}" for f, w in sorted(where.items())) or "no fields")
 
     shown = "; ".join(held(k) for k in range(len(pieces)))
-    out = {}
+    out, swapped = {}, {}
     for field in sorted(set().union(*on["cells"], *on["points"])):
         lost = [w for w in ("cells", "points") if any(field in h for h in on[w]) and field not in joined[w]]
         if not lost:
@@ -322,21 +325,31 @@ def fields_left_out(pieces: list, named: list, path: str, point_data: dict, cell
             lacking = [names[k] for k in range(len(pieces)) if k not in having]
             why = (f"block{'s' if len(lacking) > 1 else ''} {', '.join(lacking)} of the multiblock file "
                    f"hold{'' if len(lacking) > 1 else 's'} no '{field}' on {where} ({shown})")
-            fix = (f"measure the block{'s' if len(having) > 1 else ''} holding it alone: give "
-                   f"{'their' if len(having) > 1 else 'its'} files as a quoted glob (such as "
-                   f"'{os.path.relpath(named[having[0]][1])}' with a * for the step) or a 'time,path' listing")
+            fix = _holding_blocks_fix(path, [named[k][1] for k in having], [names[k] for k in having])
         kept = "points" if where == "cells" else "cells"
         if field in joined[kept]:
-            import warnings
-
-            from ..errors import MeshWarning
-
-            warnings.warn(MeshWarning(f"field '{field}': its copy on {where} is left out, as {why}; the copy on "
-                                      f"{kept} is read; write it on {where} in every block, or give --field-location "
-                                      f"{kept[:-1]} to choose that copy", where=path), stacklevel=4)
+            if where == "cells":
+                swapped[field] = why
             continue
         out[field] = (why, fix)
-    return out
+    return out, swapped
+
+
+def _holding_blocks_fix(path: str, files: list, names: list) -> str:
+    """How to measure only the blocks of a multiblock step that hold a field: a glob of one block's files
+    would make each other block a step, and would lose the time the ``.vtm`` files store."""
+    from ._formats import time_from_field_data
+
+    copies = f"copies of the .vtm files naming only block{'s' if len(names) > 1 else ''} {', '.join(names)}"
+    if len(files) > 1:
+        return f"measure the blocks holding it alone: give {copies} (each keeps its step's time)"
+    time = time_from_field_data(own_time(path), path)
+    if time is None:  # the block files' own times (or none) are the steps'
+        return (f"measure the block holding it alone: give its files as a quoted glob (such as "
+                f"'{os.path.relpath(files[0])}' with a * for the step), or {copies}")
+    line = f"{time:.10g},{os.path.relpath(files[0], os.path.dirname(os.path.abspath(path)))}"
+    return (f"measure the block holding it alone: give a 'time,path' listing of its files with the .vtm files' "
+            f"times, beside them (one line a step, as '{line}'), or {copies}")
 
 
 def _shared(pieces, kind: str, name: str) -> bool:
@@ -370,15 +383,17 @@ def own_time(path: str, *, decode: bool = True):
     if name is None:
         return {}
     array = arrays[name]
-    if array.get("format") == "ascii":
+    if array.get("format", "ascii") == "ascii":  # no format: text, as some writers leave it (VTK reads none)
         dtype = np.float32 if array.get("type") == "Float32" else np.float64
+        words = (array.text or "").split()[:1]
         try:
-            return {name: np.array((array.text or "").split()[:1], dtype=dtype)}
+            return {name: np.array(words, dtype=dtype)} if words else {}
         except ValueError:  # not a number: said by the time's own check
             return {name: np.array([(array.text or "").strip()], dtype=object)}
     if not decode:
         return TIME_NEEDS_FULL_READ
-    return _decoded_field_data(root, name)
+    decoded = _decoded_field_data(root, name)
+    return decoded if any(np.size(v) for v in decoded.values()) else {}  # an empty decode is no time
 
 
 def _decoded_field_data(root, name: str) -> dict:
@@ -406,7 +421,8 @@ def _decoded_field_data(root, name: str) -> dict:
 
 def _with_own_time(mesh, path: str, block: str):
     """``mesh`` (the step's volume blocks read) with the time the multiblock file stores itself, when it
-    stores one, in place of the blocks'; a :class:`MeshWarning` when the two differ."""
+    stores one, in place of the blocks'; where the two differ, ``mesh.time_disagreement`` says so (the series
+    warns of it where the step's time is the file's)."""
     from ._formats import TIME_ARRAY_NAMES, time_from_field_data
 
     own = own_time(path)
@@ -414,16 +430,13 @@ def _with_own_time(mesh, path: str, block: str):
         return mesh
     field_data = dict(mesh.field_data or {})
     time = time_from_field_data(own, path)
+    if time is None:
+        return mesh
     theirs = time_from_field_data(field_data, path)
     if theirs is not None and abs(theirs - time) > max(time.resolution, theirs.resolution):
-        import warnings
-
-        from ..errors import MeshWarning
-
-        warnings.warn(MeshWarning(f"the multiblock file stores time {time:.10g} and its block "
-                                  f"{block or 'first'} stores {theirs:.10g}: the multiblock file's time is used; "
-                                  "write one time, or give a 'time,path' listing whose times are used instead",
-                                  where=path), stacklevel=3)
+        # said by the series where the files' times are used (a listing's times make it moot)
+        mesh.time_disagreement = (f"the multiblock file stores time {time:.10g} and its block {block or 'first'} "
+                                  f"stores {theirs:.10g}: the multiblock file's time is used")
     for name in TIME_ARRAY_NAMES:
         field_data.pop(name, None)
     field_data.update(own)

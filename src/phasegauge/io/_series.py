@@ -33,7 +33,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from ..errors import InputFileNotFound, PhasegaugeError, SeriesError, SeriesWarning, UnreadableFileError
+from ..errors import InputFileNotFound, MeshWarning, PhasegaugeError, SeriesError, SeriesWarning, UnreadableFileError
 from ..model.mesh import Mesh
 from ._formats import (TIME_NEEDS_FULL_READ, check_readable, format_for, peek_time, read_mesh_file, stored_time,
                        suffix_list, surface_file_problem, time_from_field_data)
@@ -493,6 +493,9 @@ class Series:
                 if t is not None:
                     info = dataclasses.replace(info, time=t, time_origin="file")
                     self.steps[index] = info
+            if getattr(raw, "time_disagreement", None) and info.time_origin == "file":
+                warnings.warn(MeshWarning(f"{raw.time_disagreement}; write one time, or give a 'time,path' "
+                                          "listing whose times are used instead", where=info.where), stacklevel=2)
         self.mesh_pool.add(mesh)
         return Step(info, mesh, fields)
 

@@ -89,7 +89,11 @@ def warn_other_indexes(files: list, where: str, steps: list) -> list:
     """Warn once, naming them, of index files another program wrote beside the step files
     (:data:`OTHER_INDEX_SUFFIXES`, in the step files' folders or the folder above) that name some of
     them, when a step stores no time: the times they list are not read, and the steps take their
-    numbers. Returns the index files named."""
+    numbers. Multiblock files (``.vtm``) that name some of them and store a time of their own (VTK's
+    multiblock writer puts it there, not in the blocks) are counted too: given the blocks' files, their
+    times are not read. Returns the index files named."""
+    from ._multiblock import own_time
+
     if not any(s.time_origin == "index" for s in steps):
         return []
     folders = {os.path.dirname(os.path.abspath(f)) for f in files}
@@ -103,23 +107,30 @@ def warn_other_indexes(files: list, where: str, steps: list) -> list:
             continue
         for name in names:
             index = os.path.join(folder, name)
-            if not name.lower().endswith(OTHER_INDEX_SUFFIXES) or not os.path.isfile(index):
+            multiblock = name.lower().endswith(".vtm")
+            if not (multiblock or name.lower().endswith(OTHER_INDEX_SUFFIXES)) or not os.path.isfile(index):
                 continue
             try:
                 with open(index, "rb") as handle:
                     text = handle.read(_INDEX_HEAD)
             except OSError:
                 continue
-            if any(base in text for base in bases):
+            if any(base in text for base in bases) and not (multiblock and not own_time(index, decode=False)):
                 found.append(index)
     if found:
-        shown = ", ".join(os.path.basename(f) for f in found)
-        plural = len(found) > 1
-        warnings.warn(SeriesWarning(f"{shown} beside the step files list{'' if plural else 's'} their times in "
-                                    f"another program's index format{'s' if plural else ''}, not read: the steps "
-                                    "without a stored time take their step numbers as times; give the times "
-                                    "in a 'time,path' listing (a .steps file, one 'time,path' pair a line) or write "
-                                    "them into the files' field data (TimeValue)", where=where), stacklevel=3)
+        vtm = [os.path.basename(f) for f in found if f.lower().endswith(".vtm")]
+        other = [os.path.basename(f) for f in found if not f.lower().endswith(".vtm")]
+        said = [f"{', '.join(other)} beside the step files list{'s' if len(other) == 1 else ''} their times in "
+                f"another program's index format{'s' if len(other) > 1 else ''}"] if other else []
+        if vtm:
+            one = len(vtm) == 1
+            said.append(f"the .vtm file{'' if one else 's'} beside the step files ({first_three(vtm)}) "
+                        f"store{'s' if one else ''} their times")
+        fix = ("give the .vtm files (copies naming only the blocks measured keep their times) or the times in a "
+               "'time,path' listing" if vtm else "give the times in a 'time,path' listing (a .steps file, one "
+               "'time,path' pair a line) or write them into the files' field data (TimeValue)")
+        warnings.warn(SeriesWarning(f"{' and '.join(said)}, not read: the steps without a stored time take their "
+                                    f"step numbers as times; {fix}", where=where), stacklevel=3)
     return found
 
 

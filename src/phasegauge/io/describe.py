@@ -42,7 +42,8 @@ def describe_series(path, *, scan: str = "auto", sort_by_time: bool = False) -> 
         scanned_steps, fields`` (each field: ``name, location, components, min, max,
         nonfinite``), ``field_copies`` (the fields written on cells and on points
         under one name, with the copy measure reads), ``fields_left_out`` (fields a
-        multiblock file's blocks do not all hold, not read: name to why),
+        multiblock file's blocks do not all hold, not read: name to why), ``cell_copies_left_out`` (fields
+        whose cell copy some block lacks, read from their point copy: name to why),
         ``left_out_blocks`` (blocks of multiblock files not read: boundary patches), ``unreadable_steps``
         (one line each) and ``warnings``
         (one line each, repeats over steps collapsed; also issued as warnings).
@@ -175,6 +176,7 @@ def _describe(series, scan: str) -> dict:
         "fields": [stats[k] for k in sorted(stats)],
         "field_copies": _field_copies(stats),
         "fields_left_out": {name: why for name, (why, _) in sorted(first.fields.left_out.items())},
+        "cell_copies_left_out": dict(sorted(first.fields.copies_left_out.items())),
         "left_out_blocks": _left_out_blocks(first.info.path),
         "unreadable_steps": [err.one_line() for err in errors],
         "_errors": errors,
@@ -287,6 +289,8 @@ def format_description(desc: dict) -> str:
         lines.append(f"  note      {text} (for the measured field --field-location point reads the point copy)")
     for name, why in desc.get("fields_left_out", {}).items():
         lines.append(f"  {name:<16} not read: {why}")
+    for name, why in desc.get("cell_copies_left_out", {}).items():
+        lines.append(f"  {name:<16} cell copy not read: {why} (measure reads the point copy)")
     if desc.get("left_out_blocks"):
         lines.append("left out    blocks " + ", ".join(desc["left_out_blocks"])
                      + " of the multiblock files (boundary patches and other polygon data; the volume blocks are read)")

@@ -35,7 +35,9 @@ def named_field(fields, name: str, *, where: str = "", role: str = "field", fix:
     fix : str
         What to do when the field is missing.
     order : tuple of {'point', 'cell'}
-        Where to look first when both hold the name.
+        Where to look first when both hold the name. Reading the point copy where cells come first and
+        the cell copy was left out (``fields.copies_left_out``: not every block of a multiblock file holds
+        it) gives a :class:`~phasegauge.errors.MeshWarning`.
 
     Returns
     -------
@@ -50,6 +52,16 @@ def named_field(fields, name: str, *, where: str = "", role: str = "field", fix:
     for location in order:
         data = fields.point_data if location == "point" else fields.cell_data
         if name in data:
+            swapped = (getattr(fields, "copies_left_out", None) or {}).get(name)
+            if swapped and location == "point" and order[0] == "cell":  # the cell copy it prefers was lost
+                import warnings
+
+                from ..errors import MeshWarning
+
+                choose = ", or give --field-location point to choose that copy" if role == "field" else ""
+                warnings.warn(MeshWarning(f"{role} '{name}': its copy on cells is left out, as {swapped}; the copy "
+                                          f"on points is read; write it on cells in every block{choose}",
+                                          where=where), stacklevel=3)
             return np.asarray(data[name]), location
     names = sorted(set(fields.point_data) | set(fields.cell_data))
     left_out = getattr(fields, "left_out", None) or {}
