@@ -414,9 +414,8 @@ def _keep_centres(mesh: Mesh, centres) -> None:
     numbered among its points after their merge (``Mesh.memo(SPLIT_CENTRES)``; see ``with_centre_means``)."""
     from ..model.polyhedra import SPLIT_CENTRES
 
-    kept = None if centres is None else centres.merged(mesh.point_merge, mesh.n_points)
-    if kept is not None:
-        mesh.memo(SPLIT_CENTRES, lambda: kept)
+    if centres is not None:  # (once per mesh: a pooled mesh has them from its first step)
+        mesh.memo(SPLIT_CENTRES, lambda: centres.merged(mesh.point_merge, mesh.n_points))
 
 
 _SOLID = ("tetra", "hexahedron", "wedge", "pyramid", "voxel", "tetra10", "hexahedron20", "hexahedron27",
