@@ -80,16 +80,17 @@ def test_sphere_on_polyhedra_added_centres_measured_from_their_corners(tmp_path,
 
     hexa, mesh, profile, h, eps = _sphere_on_polyhedra(tmp_path, 32, 4)
     centres = mesh.memo(SPLIT_CENTRES, lambda: None, keep=False)
-    assert centres is not None and centres.first == hexa.points.shape[0]
-    assert centres.offsets.size - 1 == mesh.n_points - centres.first
+    n_file = hexa.points.shape[0]
+    np.testing.assert_array_equal(centres.points, np.arange(n_file, mesh.n_points))  # added after the file's
+    assert centres.offsets.size - 1 == centres.points.size
     # a centre is the mean of its corners (the reader's rule)
     corners = mesh.coordinates[centres.corners[centres.offsets[7]:centres.offsets[8]]]
-    assert np.allclose(mesh.coordinates[centres.first + 7], corners.mean(axis=0), rtol=0, atol=1e-12)
+    assert np.allclose(mesh.coordinates[centres.points[7]], corners.mean(axis=0), rtol=0, atol=1e-12)
     c = profile(mesh.coordinates)
     _, measured = interface_metrics(mesh, c, return_distances=True)
     found = np.isfinite(measured.point)
     at_centres = found.copy()
-    at_centres[:centres.first] = False
+    at_centres[:n_file] = False
     # (the cell centres and the few face centres kept, quad faces cut along a diagonal: half the
     # points measured, 0.50; 0.7 with a centre on every quad face)
     assert at_centres.sum() > 0.4 * found.sum()
@@ -98,7 +99,7 @@ def test_sphere_on_polyhedra_added_centres_measured_from_their_corners(tmp_path,
     assert np.sqrt(np.mean(error ** 2)) < 0.02 and np.abs(error).max() < 0.12
     # the corners: the distances a search of each gives (the first of their 3 nearest elements)
     geometry = _whole_cell_pieces(mesh, _ContourGeometry(measured.geometry.contour))
-    rows = np.flatnonzero(found[:centres.first])
+    rows = np.flatnonzero(found[:n_file])
     searched = _signed_distance(mesh.coordinates[rows], c[rows], geometry, mesh.plane_axes, 0.5, measured.bound)
     assert np.allclose(measured.point[rows], searched, rtol=0, atol=1e-12 * h, equal_nan=True)
     # the centres: a search of each finds the same element at nearly all of them
@@ -118,19 +119,19 @@ def test_sphere_on_polyhedra_added_centres_measured_from_their_corners(tmp_path,
     rows = np.flatnonzero(found)
     searched = _signed_distance(mesh.coordinates[rows], c[rows], geometry, mesh.plane_axes, 0.5, measured.bound)
     assert not np.allclose(searched, measured.point[rows], rtol=0, atol=1e-6 * h, equal_nan=True)  # thinned
-    corner = rows < centres.first
+    corner = rows < n_file
     assert np.allclose(split[rows[corner]], searched[corner], rtol=0, atol=1e-12 * h, equal_nan=True)
     same = np.isclose(split[rows[~corner]], searched[~corner], rtol=0, atol=1e-12 * h)
     assert same.mean() > 0.97
 
 
-def test_polyhedra_with_merged_points_hand_over_their_centres_while_last(tmp_path):
-    # a file with one point written twice: the reader merges it, and the centres stay the mesh's last
-    # points (coincident points are numbered in order of first appearance), so their corner lists are
-    # handed over renumbered: the same mesh, centres and distances as the file without the copy. A file
-    # point on an added centre puts it among the file's points: no corner lists, and every point the
-    # widths need is searched, the same distances as a search of each [the search is checked against
-    # the sphere's |r - R| in test_sphere_on_polyhedra_distances_and_widths]
+def test_polyhedra_with_merged_points_hand_over_their_centres(tmp_path):
+    # a file with one point written twice: the reader merges it, and the centres' corner lists are handed
+    # over renumbered: the same mesh, centres and distances as the file without the copy. A file point on
+    # an added centre (the last cell's centre) takes that centre's place: the centre is left out of the
+    # corner lists (the point keeps its own value and is searched), the others are handed over, and every
+    # distance is the file without the point's [the search is checked against the sphere's |r - R| in
+    # test_sphere_on_polyhedra_distances_and_widths]
     from phasegauge.analysis._signed_distance import _signed_distance
     from phasegauge.errors import MeshWarning
     from phasegauge.model.polyhedra import SPLIT_CENTRES
@@ -156,20 +157,27 @@ def test_polyhedra_with_merged_points_hand_over_their_centres_while_last(tmp_pat
             meshes.append(Series(str(tmp_path / f"{name}.vtu")).read(0).mesh)
     twice, on_centre = meshes
     centres = twice.memo(SPLIT_CENTRES, lambda: None, keep=False)
-    assert centres is not None and centres.first == plain.first == hexa.points.shape[0]
-    np.testing.assert_array_equal(centres.corners, plain.corners)
-    np.testing.assert_array_equal(centres.offsets, plain.offsets)
+    n_file = hexa.points.shape[0]
+    np.testing.assert_array_equal(plain.points, np.arange(n_file, once.n_points))
+    for got, want in zip(centres, plain):
+        np.testing.assert_array_equal(got, want)
     np.testing.assert_array_equal(twice.points, once.points)
     distances = [interface_metrics(mesh, profile(mesh.coordinates), return_distances=True)[1].point
                  for mesh in (once, twice)]
     np.testing.assert_array_equal(*distances)
+    # the point on the last centre is numbered after the file's points, the centres after it but the last
     mesh = on_centre
-    assert mesh.cell_parents is not None
-    assert mesh.memo(SPLIT_CENTRES, lambda: None, keep=False) is None
+    centres = mesh.memo(SPLIT_CENTRES, lambda: None, keep=False)
+    np.testing.assert_array_equal(centres.points, np.arange(n_file + 1, mesh.n_points))
+    np.testing.assert_array_equal(centres.offsets, plain.offsets[:-1])
+    np.testing.assert_array_equal(mesh.points[n_file], once.points[-1])
+    order = np.r_[np.arange(n_file), once.n_points - 1, np.arange(n_file, once.n_points - 1)]  # once's, in its
+    np.testing.assert_array_equal(mesh.points, once.points[order])
     c = profile(mesh.coordinates)
     _, measured = interface_metrics(mesh, c, return_distances=True)
-    rows = np.flatnonzero(np.isfinite(measured.point))
-    assert rows.size > 100
+    np.testing.assert_array_equal(measured.point[n_file + 1:], distances[0][n_file:-1])
+    np.testing.assert_array_equal(measured.point[:n_file], distances[0][:n_file])
     geometry = _whole_cell_pieces(mesh, _ContourGeometry(measured.geometry.contour))
+    rows = np.r_[np.flatnonzero(np.isfinite(measured.point[:n_file])), n_file]
     searched = _signed_distance(mesh.coordinates[rows], c[rows], geometry, mesh.plane_axes, 0.5, measured.bound)
     np.testing.assert_array_equal(measured.point[rows], searched)

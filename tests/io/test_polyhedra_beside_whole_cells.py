@@ -277,13 +277,13 @@ def test_cell_data_at_added_centres_is_their_corners_mean(tmp_path, cut_layers, 
     mesh = step.mesh
     assert set(mesh.cell_type_counts) == kinds
     centres = mesh.memo(SPLIT_CENTRES, lambda: None, keep=False)
-    assert centres is not None and mesh.n_points - centres.first == centres.offsets.size - 1 > 0
+    assert centres is not None and centres.points.size == centres.offsets.size - 1 > 0
     values = make_indicator(mesh, step.fields, "alpha").point
     for j in range(centres.offsets.size - 1):  # numpy's mean of each centre's corners, one at a time
         corners = centres.corners[centres.offsets[j]:centres.offsets[j + 1]]
         # the corners are the centre's (its place is their coordinates' mean) and give it their mean value
-        np.testing.assert_allclose(mesh.points[centres.first + j], mesh.points[corners].mean(axis=0), atol=1e-14)
-        assert values[centres.first + j] == pytest.approx(values[corners].mean(), abs=1e-14)
+        np.testing.assert_allclose(mesh.points[centres.points[j]], mesh.points[corners].mean(axis=0), atol=1e-14)
+        assert values[centres.points[j]] == pytest.approx(values[corners].mean(), abs=1e-14)
     got, twin = (measure(path, "alpha") for path in (poly, hexa))
     sphere = 4 * np.pi * 0.3 ** 2  # the ball's area
     for result in (got, twin):

@@ -366,12 +366,12 @@ def _search_sets(geometry: _ContourGeometry, plane_axes) -> tuple[tuple, tuple]:
 
 def _centre_reach(points: np.ndarray, centres) -> float:
     """The largest distance from an added centre to one of its corners (:class:`SplitCentres` ``centres``)."""
-    first, corners, offsets = centres
+    at, corners, offsets = centres
     reach = 0.0
     n = offsets.size - 1
     for lo in range(0, n, _QUERY_CHUNK):
         hi = min(lo + _QUERY_CHUNK, n)
-        own = np.repeat(points[first + lo:first + hi], np.diff(offsets[lo:hi + 1]), axis=0)
+        own = np.repeat(points[at[lo:hi]], np.diff(offsets[lo:hi + 1]), axis=0)
         offset = points[corners[offsets[lo]:offsets[hi]]] - own
         reach = max(reach, float(np.einsum("ij,ij->i", offset, offset).max(initial=0.0)))
     return float(np.sqrt(reach))
@@ -380,7 +380,7 @@ def _centre_reach(points: np.ndarray, centres) -> float:
 def _centre_split_distance(points: np.ndarray, values: np.ndarray, wanted: np.ndarray, centres,
                            geometry: _ContourGeometry, plane_axes, level: float, bound: float, reach: float,
                            near_band: float = 0.01, threads: int = 1) -> np.ndarray:
-    """Signed distances at the ``wanted`` points of a mesh whose points from ``centres.first`` on are
+    """Signed distances at the ``wanted`` points of a mesh whose points ``centres.points`` are
     centres a reader added (:class:`phasegauge.model.polyhedra.SplitCentres`); NaN elsewhere and
     beyond ``bound``.
 
@@ -400,15 +400,17 @@ def _centre_split_distance(points: np.ndarray, values: np.ndarray, wanted: np.nd
     corners' candidates whenever a search without bound would find it. About half of the points
     the widths search on polyhedra are centres (four in five while every quad face had a centre).
     """
-    first, corners, offsets = centres
+    at_centre, corners, offsets = centres
     close_set, far_set = _search_sets(geometry, plane_axes)
     dist = np.full(points.shape[0], np.nan)
     close = (values > near_band) & (values < 1.0 - near_band)
-    ids = np.flatnonzero(wanted[first:])  # the wanted centres, numbered among the centres
+    ids = np.flatnonzero(wanted[at_centre])  # the wanted centres, numbered among the centres
+    plain = wanted.copy()
+    plain[at_centre] = False  # the wanted points that are no centre
     passes = [(None, close_set)] if far_set is close_set else [(close, close_set), (~close, far_set)]
     for cls, (cent, normal, half) in passes:
-        own = wanted[:first] if cls is None else wanted[:first] & cls[:first]
-        picked = ids if cls is None else ids[cls[first + ids]]
+        own = plain if cls is None else plain & cls
+        picked = ids if cls is None else ids[cls[at_centre[ids]]]
         need = own.copy()
         need[corners[ranges(offsets, picked)]] = True
         rows = np.flatnonzero(need)
@@ -425,7 +427,7 @@ def _centre_split_distance(points: np.ndarray, values: np.ndarray, wanted: np.nd
             found[lo:lo + at.shape[0]] = nearest
             mine = np.flatnonzero(own[rows[lo:lo + _QUERY_CHUNK]] & (far[:, 0] < bound))
             dist[rows[lo + mine]] = _plane_distance(at[mine], nearest[mine, 0], cent, normal, half)
-        slot = np.zeros(first, dtype=np.intp)
+        slot = np.zeros(points.shape[0], dtype=np.intp)
         slot[rows] = np.arange(rows.size)
         # each corner's candidates' centroids, k x dim coordinates a row (none found: at infinity)
         k, dim = _CANDIDATES, cent.shape[1]
@@ -436,7 +438,7 @@ def _centre_split_distance(points: np.ndarray, values: np.ndarray, wanted: np.nd
             for lo in range(0, group.size, _CENTRE_CHUNK):
                 which = group[lo:lo + _CENTRE_CHUNK]
                 pairs = slot[corners[offsets[which][:, None] + np.arange(size)]]  # (centres, corners)
-                at = points[first + which]
+                at = points[at_centre[which]]
                 offset = table[pairs].reshape(which.size, size * k, dim)
                 offset -= at[:, None, :]
                 far = np.einsum("ijk,ijk->ij", offset, offset)
@@ -444,7 +446,7 @@ def _centre_split_distance(points: np.ndarray, values: np.ndarray, wanted: np.nd
                 keep = np.flatnonzero(far[np.arange(which.size), best] < bound * bound)
                 best = best[keep]
                 nearest = found[pairs[keep, best // k], best % k]
-                dist[first + which[keep]] = _plane_distance(at[keep], nearest, cent, normal, half)
+                dist[at_centre[which[keep]]] = _plane_distance(at[keep], nearest, cent, normal, half)
     np.negative(dist, out=dist, where=~(values > level))
     return dist
 

@@ -132,6 +132,7 @@ def convex_point_sets(raw):
     from meshio import CellBlock
 
     from ..model.convex_cells import ConvexCells, convert_convex_point_sets, split_beside
+    from ..model.polyhedra import SplitCentres, joined_centres
 
     raw.convex_point_sets = None
     marked = [isinstance(b.type, _ConvexPointSetName) for b in raw.cells]
@@ -170,6 +171,8 @@ def convex_point_sets(raw):
         rows = np.concatenate([c.ravel() for c in corners])  # (the polyhedra's centres are made alike)
         offsets = np.concatenate([[0], np.cumsum(np.concatenate([np.full(len(c), c.shape[1]) for c in corners]))])
         raw.points = np.vstack([points, corner_means(points, rows, offsets)])
+        added = SplitCentres(np.arange(len(points), len(raw.points), dtype=np.int64), rows, offsets)
+        raw.split_centres = joined_centres([(0, getattr(raw, "split_centres", None)), (0, added)])
         for name, values in list(raw.point_data.items()):
             values = np.asarray(values)
             if np.issubdtype(values.dtype, np.number):
@@ -406,7 +409,17 @@ def mesh_and_fields(raw, where: str, pool=None) -> tuple[Mesh, StepFields]:
         mesh.memo("convex_point_sets", lambda: note)
     if hasattr(raw, "keep_split"):
         raw.keep_split(mesh)
+    _keep_centres(mesh, getattr(raw, "split_centres", None))
     return mesh, step_fields(mesh, raw, where)
+
+
+def _keep_centres(mesh: Mesh, centres) -> None:
+    """Give ``mesh`` the corner lists of the centres a reader added to split cells (``raw.split_centres``), as
+    numbered among its points after their merge (``Mesh.memo(SPLIT_CENTRES)``; see ``with_centre_means``)."""
+    from ..model.polyhedra import SPLIT_CENTRES
+
+    if centres is not None:  # (once per mesh: a pooled mesh has them from its first step)
+        mesh.memo(SPLIT_CENTRES, lambda: centres.merged(mesh.point_merge, mesh.n_points))
 
 
 _SOLID = ("tetra", "hexahedron", "wedge", "pyramid", "voxel", "tetra10", "hexahedron20", "hexahedron27",

@@ -137,6 +137,7 @@ def read_multiblock(path: str):
     stay marked as pieces of their cell (``cell_pieces``).
     """
     from ._formats import read_mesh_file
+    from ..model.polyhedra import joined_centres
     from ._meshio_adapter import file_rows, new_mesh
 
     blocks = multiblock_blocks(path)
@@ -170,6 +171,8 @@ def read_multiblock(path: str):
     joined.block_sizes = block_sizes  # points merged across blocks are the join, not duplicates
     joined.cell_rows = rows
     joined.single_precision_points = single
+    # the centres readers added to split cells (each block's after its own points), numbered in the join
+    joined.split_centres = joined_centres([(len(p.points), getattr(p, "split_centres", None)) for p in pieces])
     if any(getattr(p, "cell_pieces", None) for p in pieces):  # cells a reader split stay marked per block
         joined.cell_pieces = [mark for p in pieces
                               for mark in (getattr(p, "cell_pieces", None) or [None] * len(p.cells))]

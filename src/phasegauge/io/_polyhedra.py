@@ -251,20 +251,15 @@ class PolyhedralRead:
 
     def keep_split(self, mesh) -> None:
         """Keep the split with ``mesh`` (for the next steps of a series), and give the mesh the
-        tetrahedra's face neighbours when its cells are the split's tetrahedra themselves, and the
-        added centres' corner lists when the centres are its last points (:func:`_mesh_centres`)."""
+        tetrahedra's face neighbours when its cells are the split's tetrahedra themselves (the added
+        centres' corner lists go as ``raw.split_centres``, :func:`_split_centres`)."""
         from ..model._faces import SPLIT_FACES
-        from ..model.polyhedra import SPLIT_CENTRES
 
         kept = self.split
         mesh.memo(self._KEY, lambda: (self.signature, kept))
-        # polyhedra coned beside whole cells add their centres after the points too
         split = kept.coned if isinstance(kept, OrdinaryCells) else kept
         if split is None:
             return
-        centres = _mesh_centres(split, mesh)
-        if centres is not None:
-            mesh.memo(SPLIT_CENTRES, lambda: centres)
         if (split.neighbours is not None and len(mesh.blocks) == 1
                 and mesh.blocks[0].connectivity is split.tetra):
             mesh.memo(SPLIT_FACES, lambda: split.neighbours)
@@ -319,6 +314,7 @@ class PolyhedralRead:
         raw = new_mesh(points, blocks, point_data=point_data, cell_data=self._cell_data_of(rows_of),
                        field_data=self.field_data)
         raw.cell_rows = self._rows_of + [rows[split.source]]  # the file's number of each cell (io: file_rows)
+        raw.split_centres = _split_centres(split)
         note = None
         if any(isinstance(name, type(CONVEX_POINT_SET)) for name, _ in blocks):
             # convex cells split about their faces share the polyhedra's face centres
@@ -389,6 +385,7 @@ class PolyhedralRead:
         raw = new_mesh(points, whole + [(name, cells) for name, cells, _ in coned], point_data=point_data,
                        cell_data=self._cell_data_of(rows_of), field_data=self.field_data)
         raw.cell_rows = all_rows  # the file's number of each cell (io: file_rows)
+        raw.split_centres = _split_centres(split)  # coned beside whole cells: centres after the points too
         # a polyhedron's pyramids and tetrahedra are pieces of it: numbered alike across their two blocks
         raw.cell_pieces = [None] * len(whole) + [source if k == 0 else JoinedPieces(source)
                                                  for k, (*_, source) in enumerate(coned)]
@@ -403,31 +400,15 @@ class PolyhedralRead:
         return {name: [values[r] for r in rows_of] for name, values in self._numeric_cell_data().items()}
 
 
-def _mesh_centres(split, mesh):
-    """The centres ``split`` added as numbered among the points of ``mesh``
-    (:class:`~phasegauge.model.polyhedra.SplitCentres`), or None when they are not its last points.
-
-    Unmerged, the mesh's points are the split's points and centres in order. A merge of coincident
-    points numbers them in order of first appearance, so the centres stay last unless one fell on
-    a point of the file; the copies of a face centre that cells written with their own copies of
-    their corners each add are one point there, with the first copy's corners (merged alike).
-    """
+def _split_centres(split):
+    """The centres ``split`` added after the points (:class:`~phasegauge.model.polyhedra.SplitCentres`), or
+    None; the mesh takes them through its merge of coincident points (``mesh_and_fields``)."""
     from ..model.polyhedra import SplitCentres
 
-    n, merge = split.n_points, mesh.point_merge
-    corners, offsets = split.centre_points, split.centre_offsets
-    if not split.n_centres or (mesh.n_points if merge is None else merge.size) != n + split.n_centres:
+    if not split.n_centres:
         return None
-    if merge is None:
-        return SplitCentres(n, corners, offsets)
-    first, tail = int(merge[:n].max(initial=-1)) + 1, merge[n:]
-    if tail.min() < first:
-        return None
-    _, pick = np.unique(tail, return_index=True)  # the first copy of each centre, in the mesh's order
-    sizes = np.diff(offsets)[pick]
-    kept = np.concatenate([[0], np.cumsum(sizes)]).astype(np.int64)
-    rows = np.repeat(offsets[pick] - kept[:-1], sizes) + np.arange(kept[-1])
-    return SplitCentres(first, merge[corners[rows]], kept)
+    return SplitCentres(np.arange(split.n_points, split.n_points + split.n_centres, dtype=np.int64),
+                        split.centre_points, split.centre_offsets)
 
 
 @dataclass(frozen=True, eq=False)

@@ -231,12 +231,12 @@ def with_centre_means(mesh: Mesh, point_values: np.ndarray) -> np.ndarray:
 
     A point fit from the cells around an added centre sees the pieces of one cell only, so it
     returns that cell's value (0 or 1 for a volume fraction); the mean of the corners is the
-    value the reader gives the centres of point data (one rule for both). Every corner is a mesh
-    point below the first centre, so face and cell centres are set in one pass.
+    value the reader gives the centres of point data (one rule for both). No corner is a centre,
+    so face and cell centres are set in one pass, wherever they sit among the points.
     """
     from .polyhedra import SPLIT_CENTRES
 
     centres = mesh.memo(SPLIT_CENTRES, lambda: None, keep=False)
     if centres is not None:
-        point_values[centres.first:] = centres.centre_values(point_values)
+        point_values[centres.points] = centres.centre_values(point_values)
     return point_values

@@ -68,7 +68,8 @@ from ._places import corner_means, in_coordinate_order
 from ._split_neighbours import edge_twins, ordered_rows, sorted_with_places, split_neighbours
 from .cells import FACES
 
-__all__ = ["PolyhedraSplit", "split_polyhedra", "cell_face_stream", "SPLIT_CENTRES", "SplitCentres"]
+__all__ = ["PolyhedraSplit", "split_polyhedra", "cell_face_stream", "SPLIT_CENTRES", "SplitCentres",
+           "joined_centres"]
 
 #: ``Mesh.memo`` key of the added centres' corner lists, set by a reader that split the mesh's cells
 #: (:class:`SplitCentres`; absent on other meshes)
@@ -148,12 +149,12 @@ class PolyhedraSplit:
 class SplitCentres(NamedTuple):
     """The corners of the centres a split added to a mesh's points (``Mesh.memo(SPLIT_CENTRES)``).
 
-    Centre ``j`` is mesh point ``first + j``, the mean of the mesh points
-    ``corners[offsets[j]:offsets[j + 1]]`` (all numbered below ``first``); every mesh point from
-    ``first`` on is a centre. The arrays are the split's own (:class:`PolyhedraSplit`).
+    Centre ``j`` is mesh point ``points[j]``, the mean of the mesh points
+    ``corners[offsets[j]:offsets[j + 1]]``, none of them a centre. The centres are named one by one:
+    on a mesh joined from blocks each block's centres sit among the joined points, not last.
     """
 
-    first: int
+    points: np.ndarray
     corners: np.ndarray
     offsets: np.ndarray
 
@@ -161,6 +162,38 @@ class SplitCentres(NamedTuple):
         """Values at the centres from the mesh points' ``values`` (n_points, ...): the mean of their
         corners' values, the rule of :meth:`PolyhedraSplit.centre_values` (the reader's point data)."""
         return corner_means(values, self.corners, self.offsets)
+
+    def merged(self, merge: np.ndarray | None, n_points: int) -> SplitCentres | None:
+        """The centres as numbered among the ``n_points`` points of a mesh whose points were merged
+        (``merge``: each point's number there; None: unmerged). A centre merged with a point that is no
+        centre (one fell on a file point) is left out: that point keeps its own value. The copies of one
+        centre (a face centre each of its cells or blocks added) are one point, with the first copy's
+        corners. None when no centre is left."""
+        if merge is None:
+            return self if self.points.size else None
+        merge, at, plain = np.asarray(merge, dtype=np.int64), merge[self.points], np.zeros(n_points, dtype=bool)
+        plain[np.delete(merge, self.points)] = True
+        _, pick = np.unique(at, return_index=True)  # the first copy of each centre
+        pick = pick[~plain[at[pick]]]
+        if not pick.size:
+            return None
+        sizes = np.diff(self.offsets)[pick]
+        kept = np.concatenate([[0], np.cumsum(sizes)]).astype(np.int64)
+        rows = np.repeat(self.offsets[pick] - kept[:-1], sizes) + np.arange(kept[-1])
+        return SplitCentres(at[pick], merge[self.corners[rows]], kept)
+
+
+def joined_centres(parts: list) -> SplitCentres | None:
+    """The centres of blocks joined one after the other (``parts``: per block its point count and its
+    :class:`SplitCentres` numbered in the block, or None), numbered in the join; None without any."""
+    starts = np.concatenate([[0], np.cumsum([n for n, _ in parts])]).astype(np.int64)
+    held = [(start, c) for start, (_, c) in zip(starts, parts) if c is not None]
+    if not held:
+        return None
+    offsets = np.concatenate([[0], np.cumsum(np.concatenate([np.diff(c.offsets) for _, c in held]))])
+    return SplitCentres(np.concatenate([c.points.astype(np.int64) + start for start, c in held]),
+                        np.concatenate([c.corners.astype(np.int64) + start for start, c in held]),
+                        offsets.astype(np.int64))
 
 
 def cell_face_stream(cell_type: str, connectivity: np.ndarray) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
