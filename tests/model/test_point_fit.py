@@ -60,6 +60,9 @@ def test_point_fit_in_chunks_matches_numpy_least_squares_and_one_pass(monkeypatc
     np.testing.assert_allclose(ours[fitted], reference[fitted], rtol=1e-9, atol=1e-12)
     # the fit keeps no copy of the cell numbers: it reads the transposed incidence's own
     assert chunked.memo("point_fit", lambda: None).cols is chunked._incidence_t.indices
+    # its chunks on two threads: the same values bit for bit
+    threaded = grid_mesh((6, 6, 6), kind="tetra", jitter=0.2, seed=2)
+    assert np.array_equal(threaded.cell_to_point(values, threads=2), one_pass)
 
 
 def test_fit_through_the_good_cells_matches_numpy_least_squares_and_is_kept_for_its_pattern(monkeypatch):

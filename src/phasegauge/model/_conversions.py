@@ -122,14 +122,15 @@ def _fit_of(rows, cols, dx, w, indptr, d: int, n: int) -> PointFit:
     return PointFit(cols, starts, nonempty, coef, posed[nonempty])
 
 
-def point_fit(mesh: Mesh) -> PointFit:
+def point_fit(mesh: Mesh, *, threads: int = 1) -> PointFit:
     """The :class:`PointFit` of ``mesh`` with every cell good (built once per mesh).
 
-    Made a chunk of points at a time (about :data:`_FIT_PAIRS` (point, cell) pairs each): the stencil's
-    offsets and weights (48 bytes a pair) and the normal matrices exist for one chunk only, the same numbers bit for bit
-    as one pass over all points (every sum runs over one point's pairs). The fit's cells are the
-    transposed incidence's own column indices (shared, not copied)."""
-    return mesh.memo("point_fit", lambda: _chunked_fit(mesh))
+    Made a chunk of points at a time (about :data:`_FIT_PAIRS` (point, cell) pairs each), the chunks on
+    up to ``threads`` threads: the stencil's offsets and weights (48 bytes a pair) and the normal matrices
+    exist for the chunks at work only, the same numbers bit for bit as one pass over all points (every sum
+    runs over one point's pairs) on any number of threads. The fit's cells are the transposed incidence's
+    own column indices (shared, not copied)."""
+    return mesh.memo("point_fit", lambda: _chunked_fit(mesh, threads))
 
 
 #: (point, cell) pairs per chunk of :func:`point_fit` (0.25M tetrahedra, 1M pairs: a first fit's peak
@@ -137,29 +138,33 @@ def point_fit(mesh: Mesh) -> PointFit:
 _FIT_PAIRS = 1 << 16
 
 
-def _chunked_fit(mesh: Mesh) -> PointFit:
+def _chunked_fit(mesh: Mesh, threads: int = 1) -> PointFit:
     """:func:`point_fit`'s work: :func:`_fit_of` over the stencil of each chunk of points."""
+    from ._threads import ordered_map
+
     at = mesh._incidence_t
     indptr, n, d = at.indptr, mesh.n_points, mesh.dimension
     scale = np.median(mesh.cell_sizes) ** 2 if mesh.n_cells else 1.0
+    centroids, coordinates = mesh.cell_centroids, mesh.coordinates  # made before the threads read them
     coef = np.empty(at.indices.size)
-    starts, points, posed = [], [], []
     bounds = np.unique(np.concatenate([[0], np.searchsorted(indptr, np.arange(_FIT_PAIRS, indptr[-1], _FIT_PAIRS)),
                                        [n]]))
-    for p0, p1 in zip(bounds[:-1].tolist(), bounds[1:].tolist()):
+
+    def chunk(span):  # writes its own slice of coef only
+        p0, p1 = span
         a, b = int(indptr[p0]), int(indptr[p1])
         local = (indptr[p0:p1 + 1] - a).astype(np.int64)
         rows = np.repeat(np.arange(p0, p1), np.diff(local))
         cols = at.indices[a:b].astype(np.int64)
-        dx = mesh.cell_centroids[cols] - mesh.coordinates[rows]
+        dx = centroids[cols] - coordinates[rows]
         w = 1.0 / np.maximum(np.einsum("nd,nd->n", dx, dx), 1e-12 * scale)
         part = _fit_of(rows - p0, cols, dx, w, local, d, p1 - p0)
         coef[a:b] = part.coef
-        starts.append(part.starts + a)
-        points.append(part.points + p0)
-        posed.append(part.posed)
-    join = (lambda parts, dtype: np.concatenate(parts) if parts else np.zeros(0, dtype=dtype))
-    return PointFit(at.indices, join(starts, np.int64), join(points, np.int64), coef, join(posed, bool))
+        return part.starts + a, part.points + p0, part.posed
+
+    parts = list(ordered_map(chunk, zip(bounds[:-1].tolist(), bounds[1:].tolist()), threads=threads))
+    join = (lambda k, dtype: np.concatenate([p[k] for p in parts]) if parts else np.zeros(0, dtype=dtype))
+    return PointFit(at.indices, join(0, np.int64), join(1, np.int64), coef, join(2, bool))
 
 
 def good_cells_fit(mesh: Mesh, good: np.ndarray) -> PointFit:
@@ -190,10 +195,11 @@ def good_cells_fit(mesh: Mesh, good: np.ndarray) -> PointFit:
 
 
 def linear_point_values(mesh: Mesh, flat: np.ndarray, good: np.ndarray, fallback: np.ndarray, *,
-                        limited: bool = True) -> np.ndarray:
+                        limited: bool = True, threads: int = 1) -> np.ndarray:
     """Point values of the least-squares linear fit through the good cells around each point, kept in
-    their range (unless not ``limited``); ``fallback`` where the fit is ill-posed."""
-    fit = point_fit(mesh) if good.all() else good_cells_fit(mesh, good)
+    their range (unless not ``limited``); ``fallback`` where the fit is ill-posed. A new mesh's fit of
+    every cell is made on up to ``threads`` threads (:func:`point_fit`)."""
+    fit = point_fit(mesh, threads=threads) if good.all() else good_cells_fit(mesh, good)
     return _fitted_values(fit, flat, fallback, limited)
 
 

@@ -267,7 +267,7 @@ def select_field(fields, name: str, *, where: str = "", location: str | None = N
 
 def make_indicator(mesh: Mesh, fields, name: str, *, range=None, phase: str = "upper",
                    where: str = "", warn: bool = True, field_location: str | None = None,
-                   level_set: bool = False, **old) -> Indicator:
+                   level_set: bool = False, threads: int = 1, **old) -> Indicator:
     """Build the indicator of one step.
 
     Parameters
@@ -296,6 +296,8 @@ def make_indicator(mesh: Mesh, fields, name: str, *, range=None, phase: str = "u
         ``range`` is not used. Data on cells goes to the points first
         (:func:`.level_set.level_set_points`: exact for a linear field, at
         boundary points too).
+    threads : int
+        Threads for a new mesh's point fit of a field on cells (the same values on any number).
 
     Returns
     -------
@@ -331,7 +333,7 @@ def make_indicator(mesh: Mesh, fields, name: str, *, range=None, phase: str = "u
     c[~finite] = np.nan
     if location == "point":
         return Indicator(mesh.point_to_cell(c), c, "point", nonfinite, name, value_range, phase, copies)
-    return Indicator(c, mesh.cell_to_point(c), "cell", nonfinite, name, value_range, phase, copies)
+    return Indicator(c, mesh.cell_to_point(c, threads=threads), "cell", nonfinite, name, value_range, phase, copies)
 
 
 def check_range(values: np.ndarray, value_range, *, name: str = "", where: str = "") -> None:

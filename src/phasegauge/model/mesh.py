@@ -530,7 +530,7 @@ class Mesh:
         degenerate cells): the incidence product is then a sum over connectivity columns."""
         return not any(b.cell_type == "polygon" for b in self.blocks) and not self._flat_cells
 
-    def cell_to_point(self, values: np.ndarray, *, method: str = "linear") -> np.ndarray:
+    def cell_to_point(self, values: np.ndarray, *, method: str = "linear", threads: int = 1) -> np.ndarray:
         """Point values reconstructed from the cells around each point.
 
         Parameters
@@ -543,6 +543,9 @@ class Mesh:
             interior points, bounded where the field jumps. ``mean``: the
             measure-weighted mean of those cells (first order on uneven
             stencils).
+
+        threads : int
+            Threads for a new mesh's linear fit (made once; the same values on any number).
 
         Returns
         -------
@@ -571,7 +574,7 @@ class Mesh:
         with np.errstate(invalid="ignore", divide="ignore"):
             out = np.where(weight > 0, total / np.where(weight > 0, weight, 1.0), np.nan)
         if method == "linear":
-            out = linear_point_values(self, flat, np.all(finite, axis=1), out)
+            out = linear_point_values(self, flat, np.all(finite, axis=1), out, threads=threads)
         out = with_centre_means(self, out)  # centres a reader added: their corners' mean, either method
         return out.reshape((self.n_points,) + v.shape[1:])
 

@@ -214,7 +214,8 @@ def analyse_step(step, options, *, contour_dir: str | None = None, reported_mesh
     prepare_mesh(mesh, threads=threads, split=bool({"interface", "droplets"} & set(options.analyses))
                  or options.section_axis is not None)
     ind = make_indicator(mesh, step.fields, options.field, range=options.range, phase=options.phase,
-                         where=step.info.where, field_location=options.field_location, level_set=options.level_set)
+                         where=step.info.where, field_location=options.field_location, level_set=options.level_set,
+                         threads=threads)
     if ind.nonfinite == ind.cell.size or not np.isfinite(ind.cell).any():
         raise InputError(f"field '{options.field}' has no finite values (all NaN or Inf)", where=step.info.where,
                          fix="the solver may have diverged at this step")
