@@ -135,4 +135,5 @@ def test_each_reason_a_check_was_not_made():
     assert level_set["interface_widening"]["not_made_because"] == "a level set has no width of its own"
     said = verdict_lines(list(level_set.values()), flagged=True)
     assert said == ["not checked: interface widening, interface resolution (a level set has no width of its own); "
-                    "phase-volume conservation (one step only: no change to judge)"]
+                    "phase-volume conservation (one step only: no change to judge); indicator bounds (a level "
+                    "set's indicator is its Heaviside, bounded by construction)"]

@@ -48,7 +48,7 @@ def standing_checks(steps, audit: dict, options, found=None) -> list:
     Made only where the run judged what the check reads: the diffusion audit fitted a width history
     (``interface_widening``), the phase volume over two steps or more, not 0 at every step, and no finding
     (``found``: the run's findings) that says its drift was not judged (``phase_volume_drift``), the
-    overshoot volume (``indicator_bounds``), the share of the interface under 4 cells across on a
+    overshoot volume of an indicator that can leave [0, 1] (``indicator_bounds``: not a level set's), the share of the interface under 4 cells across on a
     diffuse interface, finite at some step (``interface_resolution``), and one droplet or more
     (``droplet_resolution``).
     """
@@ -73,7 +73,8 @@ def standing_checks(steps, audit: dict, options, found=None) -> list:
            else "no phase volume measured")
     why = why or _drift_not_judged(steps, found)
     checks.append(_check("phase_volume_drift", "phase volume within tolerance", why))
-    why = ("" if steps is not None and "overshoot_volume" in steps else NOT_IN_ANALYSES
+    why = ("a level set's indicator is its Heaviside, bounded by construction" if level_set
+           else "" if steps is not None and "overshoot_volume" in steps else NOT_IN_ANALYSES
            if "conservation" not in analyses else "no overshoot volume measured")
     checks.append(_check("indicator_bounds", "indicator bounded", why))
     why = ("" if "interface" in analyses and kind not in ("sharp", "level set") and not level_set
