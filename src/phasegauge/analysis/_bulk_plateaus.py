@@ -165,11 +165,11 @@ def _beyond_reach(c_point: np.ndarray, level: float, mesh, mask: np.ndarray, fin
       ``g`` to the other phase's ideal comes within PLATEAU_BAND of ``g`` (4.6 eps for a matrix at 0.02). A crest
       between two fronts lies nearer its contour than that: a strip whose crest is 0.99 holds 16 % of its side
       beyond it, a bump none.
-    - A point counts only when its distances to the contour and to the nearest boundary face (edge in 2D) add
-      up to more than eps ln(1 / PLATEAU_TOLERANCE) = 6.9 eps and a cell (face centroids and cell centroids stand
-      for the boundary and the contour): a logistic tail whose values all stay PLATEAU_TOLERANCE short of its
-      ideal ends within 6.9 eps of its contour, so its far points lie between the reach and the domain's
-      boundary that cut it.
+    - A point beyond the reach counts only when it lies farther than eps ln(1 / PLATEAU_TOLERANCE) + 1 cell - reach
+      (2.7 eps for a matrix at 0.02) from the centroids of the boundary faces (edges in 2D): a logistic tail whose
+      values all stay PLATEAU_TOLERANCE short of its ideal ends within 6.9 eps of its contour, so its points
+      beyond the reach lie within that of the domain's boundary that cut it (the cell: face centroids and cell
+      centroids stand for the boundary and the contour).
     """
     from scipy.spatial import cKDTree
 
@@ -193,14 +193,17 @@ def _beyond_reach(c_point: np.ndarray, level: float, mesh, mask: np.ndarray, fin
     cell = float(np.median(mesh.cell_sizes_of(crossed)))
     reach = max(eps * np.log(span / PLATEAU_BAND), REACH_CELLS * cell)
     points = np.flatnonzero(finite)[mask]
-    distance = tree.query(at[points])[0]
-    far = np.flatnonzero(distance > reach)
-    faces = _boundary_faces(mesh) if far.size else None
-    if faces is not None:  # a cut tail's far points: within 6.9 eps of the contour along the way to the boundary
-        wall = cKDTree(faces[0]).query(at[points[far]])[0]
-        far = far[distance[far] + wall > eps * np.log(1.0 / PLATEAU_TOLERANCE) + cell]
+    far = np.flatnonzero(np.isinf(tree.query(at[points], distance_upper_bound=reach)[0]))
     volume = point_volumes(mesh)[points]
-    return float(volume[far].sum()) >= PLATEAU_SHARE * float(volume.sum())
+    needed = PLATEAU_SHARE * float(volume.sum())
+    if float(volume[far].sum()) < needed:
+        return False
+    faces = _boundary_faces(mesh)
+    if faces is not None:  # a cut tail's far points lie within 6.9 eps of its contour and a cell less the reach
+        wall = eps * np.log(1.0 / PLATEAU_TOLERANCE) + cell - reach  # of the boundary that cut it
+        if wall > 0:
+            far = far[np.isinf(cKDTree(faces[0]).query(at[points[far]], distance_upper_bound=wall)[0])]
+    return float(volume[far].sum()) >= needed
 
 
 def point_volumes(mesh) -> np.ndarray:
