@@ -16,8 +16,8 @@ PLATEAU_TOLERANCE = 1e-3
 PLATEAU_SHARE = 0.2
 PLATEAU_BAND = 0.01
 #: a side whose values never reach its ideal keeps its own bulk only beyond the interface's reach, at least this
-#: many cells from the contour (with a mesh; :func:`_beyond_reach`), or with this share of it within PLATEAU_BAND of
-#: the bulk (without)
+#: many cells from the contour (with a mesh; :func:`_beyond_reach`; our threshold), or with this share of it within
+#: PLATEAU_BAND of the bulk (without; our threshold)
 REACH_CELLS = 4.0
 UNREACHED_SHARE = 0.6
 
@@ -55,11 +55,15 @@ def bulk_plateaus(c_point: np.ndarray, level: float, mesh=None) -> tuple[float, 
         A side whose values all stay more than ``PLATEAU_TOLERANCE`` short of
         its ideal keeps its bulk where half the side lies within 0.05 of it,
         a fifth (by volume) within 0.01 and a fifth (by volume) beyond the
-        interface's reach, max(8 eps, 4 cells) from its contour
-        (:func:`_beyond_reach`): a plateau's bulk never lies beyond its
-        side's own values, however wide its spread; the crest of a filament
-        or a bump, or a profile's tail cut off by the domain, lies within
-        that reach and still reads the ideal. Without the mesh, such a side
+        interface's reach, max(eps ln(|g - other ideal| / 0.01), 4 cells)
+        from its contour (our thresholds; 4.6 eps for a matrix at 0.02), not
+        counting points within eps ln 1000 + 1 cell - reach of the domain's
+        boundary (:func:`_beyond_reach`): a plateau's bulk never lies beyond
+        its side's own values, however wide its spread, and a matrix packed
+        between drops 10 eps apart keeps its bulk; the crest of a filament or
+        a bump lies within that reach, a profile's tail cut off by the
+        domain (ending within eps ln 999 = 6.9 eps of its contour) against
+        its boundary, and both still read the ideal. Without the mesh, such a side
         must hold 0.6 of its values within 0.01 of the bulk (a cut logistic
         tail holds at most 0.42) and the bulk lie nearer its ideal than the
         level (a crest just above the level holds all its values near it).
@@ -114,9 +118,10 @@ def bulk_plateaus(c_point: np.ndarray, level: float, mesh=None) -> tuple[float, 
         # tail of one cut off by the domain, holds too little of its side near g and still reads the ideal
         short = (float(side.min()) - ideal if below else ideal - float(side.max())) > PLATEAU_TOLERANCE
         # a crest or a cut tail piles its values near its contour: with a mesh a fifth of the side must lie beyond
-        # the interface's reach (:func:`_beyond_reach`); without one, UNREACHED_SHARE of it within PLATEAU_BAND of g
-        # and g nearer its ideal than the level (a logistic tail cut short of 1e-3 holds at most 0.42 of its side
-        # within 0.01 of g, a matrix 0.83 and more; a crest 0.05 above the level holds all of it)
+        # the interface's reach and clear of the boundary that cuts a tail (:func:`_beyond_reach`); without one,
+        # UNREACHED_SHARE of it within PLATEAU_BAND of g and g nearer its ideal than the level (a logistic tail cut
+        # short of 1e-3 holds at most 0.42 of its side within 0.01 of g, a matrix 0.83 and more; a crest 0.05 above
+        # the level holds all of it)
         unreached = (short and near.size >= 0.5 * side.size
                      and (_holds(side, g, mesh, mask, finite)
                           and _beyond_reach(c_point, level, mesh, mask, finite, g, ideal)
@@ -169,7 +174,8 @@ def _beyond_reach(c_point: np.ndarray, level: float, mesh, mask: np.ndarray, fin
       (2.7 eps for a matrix at 0.02) from the centroids of the boundary faces (edges in 2D): a logistic tail whose
       values all stay PLATEAU_TOLERANCE short of its ideal ends within 6.9 eps of its contour, so its points
       beyond the reach lie within that of the domain's boundary that cut it (the cell: face centroids and cell
-      centroids stand for the boundary and the contour).
+      centroids stand for the boundary and the contour). The planes of periodic axes count as boundary here:
+      that only sets points aside.
     """
     from scipy.spatial import cKDTree
 
