@@ -15,9 +15,9 @@ PLATEAU_TOLERANCE = 1e-3
 #: :data:`PLATEAU_BAND` of it (see :func:`bulk_plateaus`)
 PLATEAU_SHARE = 0.2
 PLATEAU_BAND = 0.01
-#: a side whose values never reach its ideal keeps its own bulk only beyond the interface's reach, this many
-#: eps or cells from the contour (with a mesh), or with this share of it within PLATEAU_BAND of the bulk (without)
-REACH_EPS = 8.0
+#: a side whose values never reach its ideal keeps its own bulk only beyond the interface's reach, at least this
+#: many cells from the contour (with a mesh; :func:`_beyond_reach`; our threshold), or with this share of it within
+#: PLATEAU_BAND of the bulk (without; our threshold)
 REACH_CELLS = 4.0
 UNREACHED_SHARE = 0.6
 
@@ -55,11 +55,15 @@ def bulk_plateaus(c_point: np.ndarray, level: float, mesh=None) -> tuple[float, 
         A side whose values all stay more than ``PLATEAU_TOLERANCE`` short of
         its ideal keeps its bulk where half the side lies within 0.05 of it,
         a fifth (by volume) within 0.01 and a fifth (by volume) beyond the
-        interface's reach, max(8 eps, 4 cells) from its contour
-        (:func:`_beyond_reach`): a plateau's bulk never lies beyond its
-        side's own values, however wide its spread; the crest of a filament
-        or a bump, or a profile's tail cut off by the domain, lies within
-        that reach and still reads the ideal. Without the mesh, such a side
+        interface's reach, max(eps ln(|g - other ideal| / 0.01), 4 cells)
+        from its contour (our thresholds; 4.6 eps for a matrix at 0.02), not
+        counting points within eps ln 1000 + 1 cell - reach of the domain's
+        boundary (:func:`_beyond_reach`): a plateau's bulk never lies beyond
+        its side's own values, however wide its spread, and a matrix packed
+        between drops 10 eps apart keeps its bulk; the crest of a filament or
+        a bump lies within that reach, a profile's tail cut off by the
+        domain (ending within eps ln 999 = 6.9 eps of its contour) against
+        its boundary, and both still read the ideal. Without the mesh, such a side
         must hold 0.6 of its values within 0.01 of the bulk (a cut logistic
         tail holds at most 0.42) and the bulk lie nearer its ideal than the
         level (a crest just above the level holds all its values near it).
@@ -114,11 +118,13 @@ def bulk_plateaus(c_point: np.ndarray, level: float, mesh=None) -> tuple[float, 
         # tail of one cut off by the domain, holds too little of its side near g and still reads the ideal
         short = (float(side.min()) - ideal if below else ideal - float(side.max())) > PLATEAU_TOLERANCE
         # a crest or a cut tail piles its values near its contour: with a mesh a fifth of the side must lie beyond
-        # the interface's reach (:func:`_beyond_reach`); without one, UNREACHED_SHARE of it within PLATEAU_BAND of g
-        # and g nearer its ideal than the level (a logistic tail cut short of 1e-3 holds at most 0.42 of its side
-        # within 0.01 of g, a matrix 0.83 and more; a crest 0.05 above the level holds all of it)
+        # the interface's reach and clear of the boundary that cuts a tail (:func:`_beyond_reach`); without one,
+        # UNREACHED_SHARE of it within PLATEAU_BAND of g and g nearer its ideal than the level (a logistic tail cut
+        # short of 1e-3 holds at most 0.42 of its side within 0.01 of g, a matrix 0.83 and more; a crest 0.05 above
+        # the level holds all of it)
         unreached = (short and near.size >= 0.5 * side.size
-                     and (_holds(side, g, mesh, mask, finite) and _beyond_reach(c_point, level, mesh, mask, finite)
+                     and (_holds(side, g, mesh, mask, finite)
+                          and _beyond_reach(c_point, level, mesh, mask, finite, g, ideal)
                           if mesh is not None else _holds(side, g, None, mask, finite, UNREACHED_SHARE)
                           and abs(g - ideal) < abs(g - level)))
         # beyond 0.25 of the ideal, a plateau must hold a fifth of its side (a bulk, as a partially
@@ -151,17 +157,29 @@ def _holds(side: np.ndarray, g: float, mesh, mask: np.ndarray, finite: np.ndarra
     return float(volume[near].sum()) >= share * float(volume.sum())
 
 
-def _beyond_reach(c_point: np.ndarray, level: float, mesh, mask: np.ndarray, finite: np.ndarray) -> bool:
-    """Whether :data:`PLATEAU_SHARE` of a side (by the points' volumes) lies farther than the interface's reach,
-    max(REACH_EPS eps, REACH_CELLS cells), from the centroids of the cells the level crosses.
+def _beyond_reach(c_point: np.ndarray, level: float, mesh, mask: np.ndarray, finite: np.ndarray, g: float,
+                  ideal: float) -> bool:
+    """Whether :data:`PLATEAU_SHARE` of a side (by the points' volumes) lies beyond the interface's reach from the
+    centroids of the cells the level crosses, on points whose profile could not be a logistic tail cut by the domain.
 
     eps is the median of d / |logit c - logit level| over the points at 0.1 < c < 0.9 clear of the level (d their
     distance to those centroids, logit c = ln(c / (1 - c))): the logistic profile c = 1 / (1 + exp(-d / eps)) read
     back (cells and centroids stand for the contour: half a cell of error, within the REACH_CELLS floor).
-    A logistic tail whose values all stay PLATEAU_TOLERANCE short of its ideal ends within eps ln(999) = 6.9 eps
-    of its contour: a tail cut by the domain, or a crest, never holds a fifth of its side beyond REACH_EPS eps.
+
+    - The reach is max(eps ln(|g - other ideal| / PLATEAU_BAND), REACH_CELLS cells): where a logistic from bulk
+      ``g`` to the other phase's ideal comes within PLATEAU_BAND of ``g`` (4.6 eps for a matrix at 0.02). A crest
+      between two fronts lies nearer its contour than that: a strip whose crest is 0.99 holds 16 % of its side
+      beyond it, a bump none.
+    - A point beyond the reach counts only when it lies farther than eps ln(1 / PLATEAU_TOLERANCE) + 1 cell - reach
+      (2.7 eps for a matrix at 0.02) from the centroids of the boundary faces (edges in 2D): a logistic tail whose
+      values all stay PLATEAU_TOLERANCE short of its ideal ends within 6.9 eps of its contour, so its points
+      beyond the reach lie within that of the domain's boundary that cut it (the cell: face centroids and cell
+      centroids stand for the boundary and the contour). The planes of periodic axes count as boundary here:
+      that only sets points aside.
     """
     from scipy.spatial import cKDTree
+
+    from ._boundary_reach import _boundary_faces
 
     c = np.asarray(c_point, dtype=np.float64)
     ext = corner_extremes(mesh, c)  # (the mesh-wide incidence is not made for it)
@@ -177,11 +195,21 @@ def _beyond_reach(c_point: np.ndarray, level: float, mesh, mask: np.ndarray, fin
     eps = 0.0
     if ramp.size:
         eps = float(np.median(tree.query(at[ramp])[0] / np.abs(logit[ramp])))
-    reach = max(REACH_EPS * eps, REACH_CELLS * float(np.median(mesh.cell_sizes_of(crossed))))
+    span = max(abs(1.0 - ideal - g), PLATEAU_BAND)  # from g to the other phase's ideal
+    cell = float(np.median(mesh.cell_sizes_of(crossed)))
+    reach = max(eps * np.log(span / PLATEAU_BAND), REACH_CELLS * cell)
     points = np.flatnonzero(finite)[mask]
-    far = np.isinf(tree.query(at[points], distance_upper_bound=reach)[0])
+    far = np.flatnonzero(np.isinf(tree.query(at[points], distance_upper_bound=reach)[0]))
     volume = point_volumes(mesh)[points]
-    return float(volume[far].sum()) >= PLATEAU_SHARE * float(volume.sum())
+    needed = PLATEAU_SHARE * float(volume.sum())
+    if float(volume[far].sum()) < needed:
+        return False
+    faces = _boundary_faces(mesh)
+    if faces is not None:  # a cut tail's far points lie within 6.9 eps of its contour and a cell less the reach
+        wall = eps * np.log(1.0 / PLATEAU_TOLERANCE) + cell - reach  # of the boundary that cut it
+        if wall > 0:
+            far = far[np.isinf(cKDTree(faces[0]).query(at[points[far]], distance_upper_bound=wall)[0])]
+    return float(volume[far].sum()) >= needed
 
 
 def point_volumes(mesh) -> np.ndarray:
