@@ -71,7 +71,7 @@ def blocks_left_out(series, results) -> str:
 
     shown = series_record(series).get("blocks_left_out", "").split(" (boundary patches")[0]
     names = [n for n in shown.split(", ") if n]
-    names += [name for r in results for category, what, _ in (getattr(r, "warning_records", None) or [])
+    names += [name for r in results for category, what, _ in (getattr(r, "notes", None) or [])
               if issubclass(category, BlocksLeftOutNote) for name in left_out_names(what)]
     names = list(dict.fromkeys(names))
     return ", ".join(names) + " (boundary patches: the volume blocks are read)" if names else ""

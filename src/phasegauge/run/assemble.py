@@ -20,7 +20,7 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
-from ..errors import (AnalysisError, BlocksLeftOutNote, InputError, PhasegaugeError, SeriesError, SeriesWarning,
+from ..errors import (AnalysisError, InputError, PhasegaugeError, SeriesError, SeriesWarning,
                       SkippedStepWarning, collapse_warnings)
 from ._boundary_findings import boundary_reach_finding, resolution_finding
 from ._drift_findings import drift_findings
@@ -331,7 +331,6 @@ def assemble(series, results: list, options, *, notes=(), feed: TrackingFeed | N
                 if r.error is not None else (SkippedStepWarning, f"step skipped: {r.skipped}", "")
                 for r in results if r.skipped is not None]
     records += [rec for r in done for rec in r.warning_records]
-    records = [rec for rec in records if not issubclass(rec[0], BlocksLeftOutNote)]  # info lines (run.measure)
     from ._sampling import run_sample_tables
 
     # steps numbered 0, 1, 2 ... (no times stored, as read): no rate per unit time is integrated over them,

@@ -18,8 +18,9 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
-from ..errors import (AnalysisError, FieldNotFoundError, InputError, InputFileNotFound, MeshWarning, NonFiniteWarning,
-                      PhasegaugeError, PhasegaugeWarning, SeriesError, UnsupportedMeshError, short_text)
+from ..errors import (AnalysisError, BlocksLeftOutNote, FieldNotFoundError, InputError, InputFileNotFound, MeshWarning,
+                      NonFiniteWarning, PhasegaugeError, PhasegaugeWarning, SeriesError, UnsupportedMeshError,
+                      short_text)
 from ..model.axes import AXIS_INDEX
 from ..model.fields import vector_field
 from ..model.indicator import make_indicator
@@ -70,6 +71,7 @@ class StepResult:
     reused: bool = False
     error: PhasegaugeError | None = None  # why the step was skipped
     warning_records: list = field(default_factory=list)  # (category, what, where) of the step's warnings
+    notes: list = field(default_factory=list)  # (category, what, where) of its info lines (BlocksLeftOutNote)
     dimension: int = 0
     outline: MeshOutline | None = None
     extra: object = None  # what options.step_extra returned (e.g. c sampled for a comparison)
@@ -543,8 +545,11 @@ class StepRunner:
                 raise AnalysisError(f"{type(exc).__name__}: {short_text(exc, 160)}", where=info.where,
                                     fix="rerun with --debug for the traceback and report it") from exc
         if result.skipped is None:  # a skipped step's warnings are about what made it fail
-            result.warning_records = [(w.category, getattr(w.message, "what", str(w.message)), info.where)
-                                      for w in caught if issubclass(w.category, PhasegaugeWarning)]
+            records = [(w.category, getattr(w.message, "what", str(w.message)), info.where)
+                       for w in caught if issubclass(w.category, PhasegaugeWarning)]
+            # blocks left out are an info line of the run, not a finding: kept apart from the step's warnings
+            result.notes = [rec for rec in records if issubclass(rec[0], BlocksLeftOutNote)]
+            result.warning_records = [rec for rec in records if not issubclass(rec[0], BlocksLeftOutNote)]
         result.messages = [f"{where}: {what}" for _, what, where in result.warning_records]
         result.seconds = time.perf_counter() - start
         result.file_sha256 = entry.file_sha256 if entry is not None else ""

@@ -1,0 +1,43 @@
+"""A boundary patch block is an info line of the run however it is written (.vtp or .vtu of faces):
+manifest.json names it in series.blocks_left_out and counts no warning for it."""
+import json
+
+import numpy as np
+import pytest
+
+import phasegauge as pg
+
+pyvista = pytest.importorskip("pyvista")
+
+
+def _write(folder, suffix):
+    """Two steps of a .vtm: a volume block of hexahedra and a wall block of quads, as .vtp or .vtu."""
+    folder.mkdir()
+    for s in range(2):
+        volume = pyvista.ImageData(dimensions=(9, 9, 9), spacing=(1 / 8,) * 3).cast_to_unstructured_grid()
+        centres = volume.cell_centers().points
+        volume.cell_data["c"] = (np.linalg.norm(centres - 0.5, axis=1) < 0.25 + 0.01 * s).astype(float)
+        wall = pyvista.Plane(center=(0.5, 0.5, 0), direction=(0, 0, 1), i_size=1, j_size=1,
+                             i_resolution=8, j_resolution=8)
+        if suffix == ".vtu":
+            wall = wall.cast_to_unstructured_grid()
+        wall.cell_data["c"] = np.zeros(wall.n_cells)
+        # VTK's own cell dimensions make the wall a patch of the volume: quads 2, hexahedra 3
+        assert wall.get_cell(0).dimension == 2 and volume.get_cell(0).dimension == 3
+        pyvista.MultiBlock({"internal": volume, "bottom": wall}).save(folder / f"case_{s}.vtm")
+    return folder
+
+
+@pytest.mark.filterwarnings("ignore")
+def test_a_patch_reads_alike_in_the_manifest_as_vtu_and_as_vtp(tmp_path):
+    manifests = {}
+    for suffix in (".vtp", ".vtu"):
+        folder = _write(tmp_path / suffix[1:], suffix)
+        out = tmp_path / f"out_{suffix[1:]}"
+        pg.measure(folder, "c", out=out, analyses=("conservation",))
+        manifests[suffix] = json.loads((out / "manifest.json").read_text())
+    for suffix, manifest in manifests.items():
+        assert not [w for w in manifest["warnings"] if "left out" in w], suffix
+        assert manifest["series"]["blocks_left_out"].startswith("bottom"), suffix
+    assert manifests[".vtu"]["warnings"] == manifests[".vtp"]["warnings"]
+    assert manifests[".vtu"]["series"]["blocks_left_out"] == manifests[".vtp"]["series"]["blocks_left_out"]
