@@ -101,3 +101,45 @@ def test_one_cell_thick_mesh_with_its_faces_first(tmp_path):
     inside = np.all((mid[:, None, :2] >= box[:, :, :2].min(1)[:, None] - 1e-12)
                     & (mid[:, None, :2] <= box[:, :, :2].max(1)[:, None] + 1e-12), axis=2)[:, 0]
     assert len(mid) > 20 and inside.all()  # each midpoint in its hexahedron's footprint (axis-aligned boxes)
+
+
+def _ghost_block(z0, layers, ghost):
+    """A 10 x 10 x ``layers`` hexahedron block from height z0 (cell 0.1), c = 1 in a ball about (0.5, 0.5, 0.75) of
+    radius 0.2, its top or bottom layer marked a ghost (vtkGhostType 1: a duplicate cell, as VTK marks them)."""
+    import pyvista
+
+    n, h = 10, 0.1
+    block = pyvista.ImageData(dimensions=(n + 1, n + 1, layers + 1), spacing=(h, h, h),
+                              origin=(0, 0, z0)).cast_to_unstructured_grid()
+    centre = block.cell_centers().points
+    block.cell_data["c"] = (np.linalg.norm(centre - [0.5, 0.5, 0.75], axis=1) < 0.2).astype(float)
+    marks = np.zeros(block.n_cells, dtype=np.uint8)
+    if ghost == "top":
+        marks[centre[:, 2] > z0 + (layers - 1) * h] = 1
+    if ghost == "bottom":
+        marks[centre[:, 2] < z0 + h] = 1
+    block.cell_data["vtkGhostType"] = marks
+    return block
+
+
+@pytest.mark.parametrize("ghost_at", ["top", "bottom"])
+def test_multiblock_cells_offset_by_whole_files_ghosts_counted(tmp_path, ghost_at):
+    # a duplicate layer at the top of block 0, or at the bottom of block 1: each block's numbers start after
+    # all the cells of the files before it (ghosts counted), so a number less the offset is the file's row
+    pyvista = pytest.importorskip("pyvista")
+    if ghost_at == "top":
+        first, second = _ghost_block(0.0, 6, "top"), _ghost_block(0.5, 5, None)
+    else:
+        first, second = _ghost_block(0.0, 5, None), _ghost_block(0.4, 6, "bottom")
+    folder = tmp_path / "g"
+    folder.mkdir()
+    pyvista.MultiBlock({"a": first, "b": second}).save(folder / "case_0.vtm")
+    measure(str(folder / "case_0.vtm"), "c", out=str(tmp_path / "out"), analyses=("interface",), contours=True)
+    contour = pyvista.read(next((tmp_path / "out" / "contours").glob("interface_*.vtu")))
+    cells = np.asarray(contour.cell_data["cell"])
+    # the block-1 file cell holding each element's midpoint, as VTK finds it [lib]; -1 outside it
+    found = second.find_containing_cell(contour.cell_centers().points)
+    assert cells.size > 50 and (found >= 0).all()
+    offset = first.n_cells  # all of block 0's file cells, ghosts counted
+    hits = np.mean(cells - found == offset)
+    assert hits > 0.95  # our threshold: a midpoint on a face between two cells may be found in the other

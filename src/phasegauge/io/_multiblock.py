@@ -147,17 +147,18 @@ def read_multiblock(path: str):
     pieces = [piece for piece in pieces if piece is not None]
     if len(pieces) == 1:
         return _with_own_time(pieces[0], path, named[0][0])
+    # each block's file numbers counted on by all the cells of the block files before it, ghost cells
+    # included (taken before they go): a cell's number less its block's offset is its row in its file
+    sizes = [max((int(r.max()) + 1 for r in file_rows(piece) if len(r)), default=0) for piece in pieces]
+    offsets = np.concatenate([[0], np.cumsum(sizes)[:-1]]).astype(np.int64)
     pieces = [_owned_cells(piece) for piece in pieces]
-    points, cells, offset, rows, counted = [], [], 0, [], 0
+    points, cells, offset, rows = [], [], 0, []
     single = any(np.asarray(p.points).dtype == np.float32 for p in pieces)
-    for piece in pieces:
+    for piece, counted in zip(pieces, offsets):
         points.append(np.asarray(piece.points, dtype=np.float64))
         cells.extend((b.type, np.asarray(b.data) + offset) for b in piece.cells)
         offset += len(piece.points)
-        # cells numbered as each volume block's file numbers them, counted on from block to block
-        own = file_rows(piece)
-        rows.extend(r + counted for r in own)
-        counted += max((int(r.max()) + 1 for r in own if len(r)), default=0)
+        rows.extend(r + counted for r in file_rows(piece))
     block_sizes = [len(p) for p in points]
     points = seams_made_equal(points, single_precision=single)
     point_data = {name: np.concatenate([np.asarray(p.point_data[name]) for p in pieces])
