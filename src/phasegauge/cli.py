@@ -298,7 +298,7 @@ def _summary(result, out, quiet):
         click.echo(f"  flag: {flag}")
     from .report._measure_report import verdict_lines
 
-    for line in verdict_lines(getattr(result, "checks", None) or [], bool(result.flags)):
+    for line in verdict_lines(getattr(result, "standing_checks", None) or [], bool(result.flags)):
         click.echo(f"  {line}")
 
 

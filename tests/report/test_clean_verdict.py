@@ -56,8 +56,8 @@ def test_mixing_only_vouches_for_no_interface_check(tmp_path):
     assert "not checked: interface widening, phase-volume conservation" in text
     assert "(not in --analyses)" in result.output
     record = json.load(open(tmp_path / "mix" / "manifest.json"))
-    assert not any(c["made"] for c in record["checks"])
-    assert {c["not_made_because"] for c in record["checks"]} == {"not in --analyses"}
+    assert not any(c["made"] for c in record["standing_checks"])
+    assert {c["not_made_because"] for c in record["standing_checks"]} == {"not in --analyses"}
 
 
 def test_no_conservation_vouches_for_no_phase_volume(tmp_path):
@@ -113,7 +113,7 @@ def test_compare_names_each_runs_checks_not_made(tmp_path):
     text = _findings(tmp_path / "c")
     assert "one: not checked: interface widening" in text and "two: not checked: interface widening" in text
     record = json.load(open(tmp_path / "c" / "manifest.json"))
-    assert not next(c for c in record["checks"]["one"] if c["check"] == "interface_widening")["made"]
+    assert not next(c for c in record["standing_checks"]["one"] if c["check"] == "interface_widening")["made"]
 
 
 def test_each_reason_a_check_was_not_made():

@@ -29,7 +29,7 @@ def _quads(nx, ny, lx, ly):
 
 def _checks(out) -> dict:
     record = json.load(open(out / "manifest.json"))
-    return {c["check"]: (c["made"], c["not_made_because"]) for c in record["checks"]}
+    return {c["check"]: (c["made"], c["not_made_because"]) for c in record["standing_checks"]}
 
 
 def test_open_channel_over_numbered_steps_does_not_make_conservation(tmp_path):
@@ -58,7 +58,7 @@ def test_a_field_with_no_phase_makes_no_check_that_needs_one(tmp_path):
     assert checks["droplet_resolution"] == (False, "no droplets found")
     assert checks["indicator_bounds"] == (True, "")  # 0 lies in [0, 1]: bounded, judged
     # before: "no flags: phase volume within tolerance, indicator bounded, interface and droplets resolved"
-    assert result.checks == json.load(open(tmp_path / "out" / "manifest.json"))["checks"]
+    assert result.standing_checks == json.load(open(tmp_path / "out" / "manifest.json"))["standing_checks"]
 
 
 def test_a_clean_closed_drop_makes_every_check(tmp_path):

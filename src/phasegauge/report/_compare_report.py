@@ -107,7 +107,7 @@ def write_compare_report(out, result, *, specs, overlays, inputs: list, version:
     page.items(findings or ["no flags in either run and no failed reference check"],
                css="flag" if findings else "ok")
     unchecked = [f"{label}: {line}" for label, run in zip(result.labels, (result.first, result.second))
-                 for line in verdict_lines(getattr(run, "checks", None) or [], True)]
+                 for line in verdict_lines(getattr(run, "standing_checks", None) or [], True)]
     if unchecked:  # each run's standing checks not made, and why
         page.items(unchecked, css="note")
     page.heading("Key figures")
@@ -160,7 +160,7 @@ def write_compare_report(out, result, *, specs, overlays, inputs: list, version:
                                                 zip(result.labels, (result.first, result.second))},
                               "warnings": {label: list(run.flags) for label, run in
                                            zip(result.labels, (result.first, result.second))},
-                              "checks": {label: list(getattr(run, "checks", None) or []) for label, run in
+                              "standing_checks": {label: list(getattr(run, "standing_checks", None) or []) for label, run in
                                          zip(result.labels, (result.first, result.second))},
                               "interface_kind": {label: _kind(run)[0] for label, run in
                                                  zip(result.labels, (result.first, result.second))},

@@ -132,7 +132,7 @@ def write_measure_report(out, result, *, series: dict, inputs: list, snapshots: 
     invocation = execution.pop("invocation", None)
     fields = {"invocation": invocation, "series": dict(series), "options": options, "execution": execution,
               "skipped_steps": result.skipped, "warnings": list(step_warnings), "flags": result.flags,
-              "checks": list(getattr(result, "checks", None) or []),
+              "standing_checks": list(getattr(result, "standing_checks", None) or []),
               "interface_kind": (result.audit or {}).get("interface_kind")}
     timings = {"total_seconds": round(time.time() - started, 3), "report_seconds": round(time.time() - t0, 3),
                **step_timings}
@@ -244,7 +244,7 @@ def _page(result, series, pngs, execution, version, *, written=(), contours=Fals
                    f"mapped from [{opts.range[0]:g}, {opts.range[1]:g}] ({opts.phase} phase)") + " · "
                 f"phasegauge {version}")
     page.heading("Findings")
-    said = verdict_lines(getattr(result, "checks", None) or [], bool(result.flags))
+    said = verdict_lines(getattr(result, "standing_checks", None) or [], bool(result.flags))
     if result.flags:
         page.items(result.flags, css="flag")
     elif said:

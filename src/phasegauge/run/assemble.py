@@ -388,7 +388,7 @@ def assemble(series, results: list, options, *, notes=(), feed: TrackingFeed | N
                          mesh=mesh, warnings=[text for _, text in summary], findings=found, probes=probes,
                          lines=lines, validation=validation, validation_summary=validation_summary,
                          phase_diagram=mixture_report_arrays(steps, options),
-                         checks=standing_checks(steps, audit, options, found))
+                         standing_checks=standing_checks(steps, audit, options, found))
 
 
 #: overshoot and drift below this share of the domain volume are round-off (c carried in float64

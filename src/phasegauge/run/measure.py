@@ -61,7 +61,7 @@ class MeasureResult:
     reading : list of str
         What was read, one line each: which copy of a field written on cells and on
         points, and the blocks of multiblock files left out.
-    checks : list of dict
+    standing_checks : list of dict
         The standing checks of a clean run (widening, phase volume, bounds, resolution), each
         made or not and why (:func:`phasegauge.run._checks.standing_checks`).
     mesh : Mesh or MeshOutline
@@ -88,7 +88,7 @@ class MeasureResult:
     validation: object = None  # DataFrame of validation.csv, or None without measured values
     validation_summary: object = None  # per time and overall figures of validation.csv's comparison
     phase_diagram: object = None  # binodal and spinodal arrays around the run's temperatures (a run with a model)
-    checks: list = field(default_factory=list)  # the standing checks made or not, and why (run/_checks.py)
+    standing_checks: list = field(default_factory=list)  # the standing checks made or not, and why (run/_checks.py)
 
 
 def measure(path, field: str | None = None, *, options: MeasureOptions | None = None, out=None,
