@@ -160,8 +160,8 @@ def write_compare_report(out, result, *, specs, overlays, inputs: list, version:
                                                 zip(result.labels, (result.first, result.second))},
                               "warnings": {label: list(run.flags) for label, run in
                                            zip(result.labels, (result.first, result.second))},
-                              "standing_checks": {label: list(getattr(run, "standing_checks", None) or []) for label, run in
-                                         zip(result.labels, (result.first, result.second))},
+                              "standing_checks": {label: list(getattr(run, "standing_checks", None) or [])
+                                                  for label, run in zip(result.labels, (result.first, result.second))},
                               "interface_kind": {label: _kind(run)[0] for label, run in
                                                  zip(result.labels, (result.first, result.second))},
                               "time_origin": dict(time_origins or {})},
