@@ -8,7 +8,7 @@ from types import MappingProxyType
 
 import numpy as np
 
-from ._canvas import new_figure, with_units
+from ._canvas import new_figure, shared_time_origin, with_units
 from ._files import atomic_save_figure, atomic_write_csv, atomic_write_json, mark_complete
 from ._measure_report import manifest as run_manifest
 
@@ -23,13 +23,15 @@ _Y_LABELS = MappingProxyType({"phase_volume_drift": "final phase-volume drift (r
                               "D_num": "numerical diffusivity D_num"})
 
 
-def plot_campaign(table, *, parameter: str = "parameter", unit: str = "", sections: bool = False):
+def plot_campaign(table, *, parameter: str = "parameter", unit: str = "", sections: bool = False,
+                  time_origins=()):
     """Each summary figure of the runs against the parameter, one panel per figure that has values.
 
     Every panel spans every run's parameter. The drift panel draws, for a run with open boundaries,
     the drift the boundary flow leaves unexplained (``phase_volume_drift_closed``), and its title says
     so. Each y label carries its column's unit where it has one (:func:`._canvas.with_units`: lengths in
-    mesh units, ``D_num`` in mesh units²/run's time units). ``D_num`` carries its standard error as an
+    mesh units, ``D_num`` in mesh units²/run's time units, per step where the runs' ``time_origins``
+    are all ``index``: they store no times). ``D_num`` carries its standard error as an
     error bar, hollow where the run's audit finds it not distinguishable from 0 (``D_num_significant``
     False). With ``sections`` (the runs measured
     cross-sections), a run whose mixing length is NaN did not mix within the domain: a hollow
@@ -62,7 +64,7 @@ def plot_campaign(table, *, parameter: str = "parameter", unit: str = "", sectio
         ax.set_xlim(*_span(x))
         ax.set_xlabel(xlabel)
         ax.set_title(_drift_title(table) if column == "phase_volume_drift" else label)
-        ax.set_ylabel(with_units(_Y_LABELS.get(column, label), column))
+        ax.set_ylabel(with_units(_Y_LABELS.get(column, label), column, shared_time_origin(time_origins)))
     for ax in axes[len(shown):]:
         ax.set_visible(False)
     return figure
@@ -136,16 +138,16 @@ def _span(x: np.ndarray) -> tuple:
 
 
 def write_campaign_report(out, table, *, parameter: str, unit: str, version: str, started: float,
-                          warnings=(), sections: bool = False) -> None:
+                          warnings=(), sections: bool = False, time_origins=()) -> None:
     """Write campaign.csv, campaign.png and manifest.json into ``out`` (each file atomically).
 
-    ``warnings`` are the campaign's own (one line each), kept in the manifest; ``sections`` as for
-    :func:`plot_campaign`.
+    ``warnings`` are the campaign's own (one line each), kept in the manifest; ``sections`` and
+    ``time_origins`` (each run's) as for :func:`plot_campaign`.
     """
     out = os.fspath(out)
     atomic_write_csv(os.path.join(out, "campaign.csv"), table)
     written = ["campaign.csv"]
-    figure = plot_campaign(table, parameter=parameter, unit=unit, sections=sections)
+    figure = plot_campaign(table, parameter=parameter, unit=unit, sections=sections, time_origins=time_origins)
     if figure is not None:
         atomic_save_figure(os.path.join(out, "campaign.png"), figure)
         written.append("campaign.png")

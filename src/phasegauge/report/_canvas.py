@@ -12,7 +12,7 @@ series gives (file field data, XDMF or listing), or the step number when it give
 from __future__ import annotations
 
 __all__ = ["new_figure", "legend_outside", "lay_out_column", "sparse_ticks", "TIME_LABEL", "STEP_LABEL", "time_label",
-           "time_words", "in_mesh_units", "with_units"]
+           "time_words", "in_mesh_units", "with_units", "shared_time_origin"]
 
 #: the x label of every plot over time
 TIME_LABEL = "time (run's time units)"
@@ -23,8 +23,20 @@ STEP_LABEL = "step"
 
 def time_label(time_origin: str | None = None) -> str:
     """The label of a time axis: :data:`STEP_LABEL` for a series whose time origin is ``index`` (it
-    stores no times, so its times are the step numbers), else :data:`TIME_LABEL`."""
+    stores no times, so its times are the step numbers), both for runs some of which store none
+    (``mixed``: :func:`shared_time_origin`), else :data:`TIME_LABEL`."""
+    if time_origin == "mixed":
+        return f"{TIME_LABEL} or {STEP_LABEL}"
     return STEP_LABEL if time_origin == "index" else TIME_LABEL
+
+
+def shared_time_origin(origins) -> str:
+    """The time origin of several runs drawn on one axis: ``index`` where every run stores no times,
+    ``mixed`` where some do and some do not, else "" (every run's times are its own)."""
+    parts = [str(o or "").split("+") for o in origins]  # a run's origins joined by '+' (measured_time_origin)
+    if parts and all(p == ["index"] for p in parts):
+        return "index"
+    return "mixed" if any("index" in p for p in parts) else ""
 
 
 def time_words(value: float, time_origin: str | None = None) -> str:
@@ -54,8 +66,8 @@ def with_units(label: str, column: str, time_origin: str | None = None) -> str:
 
     ``time`` gives :func:`time_label` of ``time_origin`` (``step`` where the series stores no times);
     lengths, areas and volumes get "(mesh units)"; diffusivities (``D_num``) "(mesh units²/run's time
-    units)", per step where the series stores no times; other columns (counts, fractions, indices) are
-    dimensionless and keep ``label``.
+    units)", per step where the series stores no times (both words for ``mixed`` runs); other columns
+    (counts, fractions, indices) are dimensionless and keep ``label``.
     """
     name = str(column).rpartition(":")[2]
     if name == "time":
@@ -63,7 +75,7 @@ def with_units(label: str, column: str, time_origin: str | None = None) -> str:
     if name in _MESH_UNIT_COLUMNS or name.startswith("centroid_"):
         return in_mesh_units(label)
     if name in _DIFFUSIVITY_COLUMNS:
-        per = "step" if time_origin == "index" else "run's time units"
+        per = {"index": "step", "mixed": "run's time units or step"}.get(time_origin, "run's time units")
         return f"{label} (mesh units²/{per})"
     return label
 

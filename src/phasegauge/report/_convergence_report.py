@@ -7,7 +7,7 @@ import time
 
 import numpy as np
 
-from ._canvas import TIME_LABEL, new_figure
+from ._canvas import new_figure, time_label
 from ._files import atomic_save_figure, atomic_write_csv, atomic_write_json, mark_complete
 from ._measure_report import manifest as run_manifest
 
@@ -18,7 +18,7 @@ _DRAWN_FIRST = ("phase_volume", "interface_size", "interface_width", "mixing_ind
                 "total_droplet_volume")
 
 
-def plot_convergence(table, *, quantities=None, limit: int = 5):
+def plot_convergence(table, *, quantities=None, limit: int = 5, time_origin: str | None = None):
     """Fine-grid GCI and apparent order over time, one curve per quantity.
 
     Parameters
@@ -29,6 +29,9 @@ def plot_convergence(table, *, quantities=None, limit: int = 5):
     quantities : sequence of str, optional
         Quantities to draw (default: the main ones the table holds, at most ``limit``).
     limit : int
+    time_origin : str, optional
+        The runs' time origin (:func:`._canvas.shared_time_origin`): ``index`` where they store no times,
+        so the times are step numbers and the x axis says "step".
 
     Returns
     -------
@@ -51,7 +54,7 @@ def plot_convergence(table, *, quantities=None, limit: int = 5):
         osc = rows["oscillatory"].to_numpy(dtype=bool)
         if osc.any():
             left.plot(t[osc], gci[osc], ls="none", marker="x", ms=7, color=line.get_color())
-    left.set_xlabel(TIME_LABEL)
+    left.set_xlabel(time_label(time_origin))
     left.set_ylabel("fine-grid GCI (%)")
     if any(np.nanmin(100 * table.loc[table["quantity"] == q, "gci_fine"]) > 0 for q in quantities):
         left.set_yscale("log")
@@ -60,7 +63,7 @@ def plot_convergence(table, *, quantities=None, limit: int = 5):
         apart = list(dict.fromkeys(table.loc[table["divergent"].astype(bool), "quantity"]))
         figure.supxlabel(f"divergent (no order or GCI) at some times: {', '.join(apart[:4])}"
                          + (f" and {len(apart) - 4} more" if len(apart) > 4 else ""), fontsize="small")
-    right.set_xlabel(TIME_LABEL)
+    right.set_xlabel(time_label(time_origin))
     right.set_ylabel("apparent order p")
     right.set_title("Apparent order")
     if quantities:
@@ -69,7 +72,7 @@ def plot_convergence(table, *, quantities=None, limit: int = 5):
 
 
 def write_convergence_report(out, table, *, sources: list, safety_factor: float, options, version: str,
-                             started: float, notes: list = ()) -> None:
+                             started: float, notes: list = (), time_origin: str | None = None) -> None:
     """Write the outputs of a grid convergence study into ``out`` (each file atomically).
 
     Parameters
@@ -89,12 +92,14 @@ def write_convergence_report(out, table, *, sources: list, safety_factor: float,
     notes : list of str
         The study's warnings (divergent quantities, times left out of the pairing), kept in the
         manifest under ``warnings``.
+    time_origin : str, optional
+        As for :func:`plot_convergence`.
     """
     out = os.fspath(out)
     atomic_write_csv(os.path.join(out, "convergence.csv"), table)
     written = ["convergence.csv"]
     if len(table):
-        figure = plot_convergence(table)
+        figure = plot_convergence(table, time_origin=time_origin)
         atomic_save_figure(os.path.join(out, "convergence.png"), figure)
         written.append("convergence.png")
     manifest = run_manifest("convergence", version=version, inputs=[],

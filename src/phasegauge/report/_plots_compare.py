@@ -11,7 +11,7 @@ from __future__ import annotations
 import numpy as np
 
 from ..errors import OptionError
-from ._canvas import TIME_LABEL, in_mesh_units, legend_outside, new_figure, time_label, with_units
+from ._canvas import in_mesh_units, legend_outside, new_figure, time_label, with_units
 
 __all__ = ["plot_interface_overlay", "plot_metric_curves", "plot_metric_differences",
            "plot_shape_history", "plot_reference_check"]
@@ -161,7 +161,7 @@ def plot_shape_history(shapes, *, columns=("mismatch_volume", "dice", "hausdorff
     return fig
 
 
-def plot_reference_check(run, checks, *, columns=None):
+def plot_reference_check(run, checks, *, columns=None, time_origin: str | None = None):
     """A run's history with the reference bands of a check drawn on it.
 
     Parameters
@@ -172,6 +172,9 @@ def plot_reference_check(run, checks, *, columns=None):
         From :func:`phasegauge.analysis.references.check_against_table`.
     columns : list of str, optional
         Columns to draw; default those the checks name.
+    time_origin : str, optional
+        The run's time origin: ``index`` where it stores no times (its times are step numbers), and the
+        x axis says "step".
 
     Returns
     -------
@@ -199,7 +202,7 @@ def plot_reference_check(run, checks, *, columns=None):
             else:
                 ax.axhspan(low, high, color=colour, alpha=0.15)
         ax.set_title(_words(col), fontsize=9)
-        ax.set_xlabel(TIME_LABEL)
+        ax.set_xlabel(time_label(time_origin))
         ax.set_ylabel(with_units(_words(col), col), fontsize=8)
     return fig
 

@@ -103,6 +103,15 @@ def _finished(folder: str):
         return None
 
 
+def _time_origin(folder: str) -> str:
+    """Where a finished run's times came from (its manifest's ``series.time_origin``), "" when unknown."""
+    try:
+        with open(os.path.join(folder, "manifest.json"), encoding="utf-8") as handle:
+            return str((json.load(handle).get("series") or {}).get("time_origin", ""))
+    except (OSError, ValueError, AttributeError):
+        return ""
+
+
 def campaign_warning(table, times) -> str | None:
     """One line on the runs whose figures are not of the same time as the others', or None.
 
@@ -249,7 +258,8 @@ def run_campaign(runs: list, options, *, out, parameter: str = "parameter", unit
         from ..report._campaign_report import write_campaign_report
 
         write_campaign_report(out, table, parameter=parameter, unit=unit, version=package_version(), started=started,
-                              warnings=notes, sections="mixing" in options.analyses and bool(options.section_axis))
+                              warnings=notes, sections="mixing" in options.analyses and bool(options.section_axis),
+                              time_origins=[_time_origin(f) for f in folders])
     return CampaignResult(table=table, runs=results, parameter=parameter, unit=unit)
 
 

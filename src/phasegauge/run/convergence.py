@@ -44,6 +44,7 @@ class ConvergenceSource:
     recorded_dimension: int = 0  # a measure folder's: the dimension its steps were measured in
     keep_3d: bool = False  # a measure folder's option
     depth: float = 0.0  # of a mesh one cell thick measured as 2D
+    time_origin: str = ""  # where the run's times came from ('index': it stores none, its times are step numbers)
 
     def record(self) -> dict:
         """The source as the manifest keeps it."""
@@ -103,6 +104,7 @@ def _read_folder(source: ConvergenceSource) -> None:
                          where=folder, fix="give the output folder of a finished 'phasegauge measure' run, "
                                            "or the series itself")
     source.series_path = str((manifest.get("series") or {}).get("path", ""))
+    source.time_origin = str((manifest.get("series") or {}).get("time_origin", ""))
     source.field = str((manifest.get("options") or {}).get("field", ""))
     source.keep_3d = bool((manifest.get("options") or {}).get("keep_3d", False))
     try:
@@ -292,6 +294,8 @@ def _run(fine, medium, coarse, *, options, cell_sizes, safety_factor, out, overw
             res = measure(source.path, options=options, workers=workers, threads=threads, progress=progress,
                           snapshots=0, contours=False)
             source.steps, source.droplets = res.steps, res.droplets
+            source.time_origin = "+".join(dict.fromkeys(r.time_origin for r in res.results
+                                                        if r.skipped is None and r.time_origin))
     tables = []
     for source in sources:
         steps = source.steps
@@ -313,9 +317,11 @@ def _run(fine, medium, coarse, *, options, cell_sizes, safety_factor, out, overw
     result = ConvergenceResult(table=table, sources=sources, safety_factor=safety_factor)
     if out is not None:
         from ._report_data import package_version
+        from ..report._canvas import shared_time_origin
         from ..report._convergence_report import write_convergence_report
 
         write_convergence_report(out, table, sources=[s.record() for s in sources], safety_factor=safety_factor,
                                  options=None if options is None else dataclasses.asdict(options),
-                                 version=package_version(), started=started, notes=notes)
+                                 version=package_version(), started=started, notes=notes,
+                                 time_origin=shared_time_origin([s.time_origin for s in sources]))
     return result
