@@ -189,3 +189,20 @@ def test_datasets_named_alike_in_several_regions_are_named_by_their_files(tmp_pa
         select_field(step.fields, "alpha", where=step.info.where)
     assert "block cht/cht_1.vtu of the multiblock file holds no 'alpha' on cells (cht/cht_0.vtu: alpha on cells; " \
            "cht/cht_1.vtu: T on cells)" in caught.value.what
+
+
+def test_the_listing_line_offered_keeps_the_vtm_time_exactly(tmp_path):
+    # a time of 1000 plus a billionth: a listing line written to 10 digits would read back as 1000
+    fluid, solid = _region(0.0), _region(0.5)
+    del solid.cell_data["alpha"]
+    regions = pyvista.MultiBlock()
+    regions["fluid"], regions["solid"] = fluid, solid
+    regions.field_data["TimeValue"] = [1000.000000001]
+    regions.save(tmp_path / "case_0.vtm")
+    vtk_time = float(pyvista.read(tmp_path / "case_0.vtm").field_data["TimeValue"][0])  # VTK's reader [lib]
+    step = Series(tmp_path / "case_0.vtm").read(0)
+    with pytest.raises(FieldNotFoundError) as caught:
+        select_field(step.fields, "alpha", where=step.info.where)
+    line = caught.value.fix.split("as '")[1].split("'")[0]
+    assert line == f"{vtk_time!r},case_0/case_0_0.vtu"
+    assert float(line.split(",")[0]) == vtk_time  # reads back as the same number

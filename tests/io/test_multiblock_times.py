@@ -128,3 +128,16 @@ def test_an_empty_vtm_time_is_no_time(tmp_path):
     assert own_time(path) == {}
     assert Series(path).times.tolist() == [0.05]  # the block's time is the step's
     assert Series(path).read(0).time == 0.05
+
+
+def test_times_a_billionth_apart_at_1000_are_told_apart(tmp_path):
+    # the two times differ in the 13th significant digit: written to 10 digits both read "1000"
+    vtm_time, block_time = 1000.000000001, 1000.0
+    path = _step(tmp_path / "case.vtm", vtm_time, block_time=block_time)
+    assert _vtk_time(path) == vtm_time  # VTK's reader gives the .vtm's time back exactly
+    with pytest.warns(MeshWarning) as caught:
+        step = Series(path).read(0)
+    (said,) = [str(w.message) for w in caught if "stores time" in str(w.message)]
+    # Python's repr of a float: the shortest text that reads back as the same number [lib]
+    assert f"stores time {vtm_time!r} and its block internal stores {block_time!r}:" in said
+    assert float(said.split("stores time ")[1].split(" ")[0]) == _vtk_time(path) == step.time

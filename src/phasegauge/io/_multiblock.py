@@ -351,7 +351,8 @@ def _holding_blocks_fix(path: str, files: list, names: list) -> str:
     if time is None:  # the block files' own times (or none) are the steps'
         return (f"measure the block holding it alone: give its files as a quoted glob (such as "
                 f"'{os.path.relpath(files[0])}' with a * for the step), or {copies}")
-    line = f"{time:.10g},{os.path.relpath(files[0], os.path.dirname(os.path.abspath(path)))}"
+    # the time as the CSV tables write it: the shortest text that reads back as the same number
+    line = f"{float(time)!r},{os.path.relpath(files[0], os.path.dirname(os.path.abspath(path)))}"
     return (f"measure the block holding it alone: give a 'time,path' listing of its files with the .vtm files' "
             f"times, beside them (one line a step, as '{line}'), or {copies}")
 
@@ -439,8 +440,8 @@ def _with_own_time(mesh, path: str, block: str):
     theirs = time_from_field_data(field_data, path)
     if theirs is not None and abs(theirs - time) > max(time.resolution, theirs.resolution):
         # said by the series where the files' times are used (a listing's times make it moot)
-        mesh.time_disagreement = (f"the multiblock file stores time {time:.10g} and its block {block or 'first'} "
-                                  f"stores {theirs:.10g}: the multiblock file's time is used")
+        mesh.time_disagreement = (f"the multiblock file stores time {float(time)!r} and its block "
+                                  f"{block or 'first'} stores {float(theirs)!r}: the multiblock file's time is used")
     for name in TIME_ARRAY_NAMES:
         field_data.pop(name, None)
     field_data.update(own)
