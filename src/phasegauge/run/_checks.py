@@ -48,8 +48,9 @@ def standing_checks(steps, audit: dict, options, found=None) -> list:
     Made only where the run judged what the check reads: the diffusion audit fitted a width history
     (``interface_widening``), the phase volume over two steps or more, not 0 at every step, and no finding
     (``found``: the run's findings) that says its drift was not judged (``phase_volume_drift``), the
-    overshoot volume of an indicator that can leave [0, 1] (``indicator_bounds``: not a level set's), the share of the interface under 4 cells across on a
-    diffuse interface, finite at some step (``interface_resolution``), and one droplet or more
+    overshoot volume of an indicator that can leave [0, 1] (``indicator_bounds``: not a level set's), the
+    share of the interface under 4 cells across on a diffuse interface, finite at some step
+    (``interface_resolution``), and one droplet or more
     (``droplet_resolution``).
     """
     analyses = set(getattr(options, "analyses", ()))
