@@ -107,11 +107,24 @@ def test_runs_ending_at_one_time_to_round_off_give_no_warning():
     # within 1e-6 of the median output interval (1): the span reach of the convergence command (our threshold)
     assert campaign_warning(table([2.0, 2.0 - 1e-7]), times) is None
     said = campaign_warning(table([2.0, 2.0 - 1e-5]), times)
-    assert "1 run ends before t = 2, the latest run's last time (b: 1.99999)" in said
+    assert "1 run ends before t = 2.0, the latest run's last time (b: 1.99999)" in said
     # a steady result (one step, none skipped) is not compared; a run that skipped a middle step is named
     assert campaign_warning(table([2.0, 7.0], steps=(3, 1)), [times[0], np.array([7.0])]) is None
     said = campaign_warning(table([2.0, 2.0], steps=(3, 2), skipped=(0, 1)), times)
     assert "1 run skipped steps (b: 1)" in said and "leave those steps out" in said
+
+
+def test_the_campaign_warning_writes_times_as_the_csv_tables_do():
+    # outputs 1e-8 apart at t = 1000: to 10 digits both last times would read "1000"
+    times = [np.array([1000.0 - 2e-8, 1000.0 - 1e-8, 1000.0])] * 2
+    early = 1000.0 - 1e-8
+    table = pd.DataFrame({"run": ["a", "b"], "time": [1000.0, early], "steps": [3, 3], "skipped_steps": [0, 0]})
+    said = campaign_warning(table, times)
+    # outside reference: pandas' to_csv writes the float as the text that reads back as the same float
+    written = pd.DataFrame({"time": [early]}).to_csv(index=False).split()[1]
+    assert float(written) == early
+    assert f"(b: {written})" in said, said
+    assert "before t = 1000.0," in said, said
 
 
 def _filling(mesh, flow_rate, t):

@@ -135,8 +135,9 @@ def campaign_warning(table, times) -> str | None:
         reach = max(span_reach(*times), 1e-12 * max(1.0, abs(latest)))
         early = [(run, t) for run, t in compared if t < latest - reach]
         if early:
-            parts.append(f"{_runs(len(early))} end{'s' if len(early) == 1 else ''} before t = {latest:.10g}, the "
-                         "latest run's last time (" + ", ".join(f"{run}: {t:.10g}" for run, t in early) + ")")
+            # times written as the CSV tables write them (repr: the shortest text that reads back the same float)
+            parts.append(f"{_runs(len(early))} end{'s' if len(early) == 1 else ''} before t = {latest!r}, the "
+                         "latest run's last time (" + ", ".join(f"{run}: {t!r}" for run, t in early) + ")")
     if not parts:
         return None
     so = "their figures are of an earlier time than the others'" if early else "their figures leave those steps out"
