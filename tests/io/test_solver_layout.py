@@ -155,7 +155,7 @@ def test_a_step_folder_with_several_mesh_files_is_refused(tmp_path):
 def test_inspect_reads_the_folder_and_names_the_patches_left_out(tank):
     desc = describe_series(tank)
     assert desc["steps"] == len(STEPS) and desc["kind"] == "folder"
-    assert desc["left_out_blocks"] == ["walls", "top"]
+    assert desc["blocks_left_out"] == ["walls", "top"]
     assert set(desc["field_copies"]) == {"alpha", "U"}
     assert "measure reads the cell copy, the solver's own values" in desc["field_copies"]["alpha"]
     text = format_description(desc)

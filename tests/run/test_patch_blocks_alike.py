@@ -1,11 +1,14 @@
 """A boundary patch block is an info line of the run however it is written (.vtp or .vtu of faces):
-manifest.json names it in series.blocks_left_out and counts no warning for it."""
+manifest.json names it in series.blocks_left_out and counts no warning for it; `inspect --json` lists it
+under the same key, as the same list."""
 import json
 
 import numpy as np
 import pytest
+from click.testing import CliRunner
 
 import phasegauge as pg
+from phasegauge.cli import main
 
 pyvista = pytest.importorskip("pyvista")
 
@@ -38,6 +41,23 @@ def test_a_patch_reads_alike_in_the_manifest_as_vtu_and_as_vtp(tmp_path):
         manifests[suffix] = json.loads((out / "manifest.json").read_text())
     for suffix, manifest in manifests.items():
         assert not [w for w in manifest["warnings"] if "left out" in w], suffix
-        assert manifest["series"]["blocks_left_out"].startswith("bottom"), suffix
+        assert manifest["series"]["blocks_left_out"] == ["bottom"], suffix
     assert manifests[".vtu"]["warnings"] == manifests[".vtp"]["warnings"]
     assert manifests[".vtu"]["series"]["blocks_left_out"] == manifests[".vtp"]["series"]["blocks_left_out"]
+
+
+@pytest.mark.filterwarnings("ignore")
+@pytest.mark.parametrize("suffix", [".vtp", ".vtu"])
+def test_the_manifest_and_inspect_json_name_the_blocks_left_out_alike(tmp_path, suffix):
+    folder = _write(tmp_path / "run", suffix)
+    # outside reference: the block names pyvista wrote into the .vtm, less the volume block VTK reads as 3D
+    written = [name for name in pyvista.read(folder / "case_0.vtm").keys() if name != "internal"]
+    assert written == ["bottom"]
+    out = tmp_path / "out"
+    pg.measure(folder, "c", out=out, analyses=("conservation",))
+    manifest = json.loads((out / "manifest.json").read_text())
+    res = CliRunner().invoke(main, ["inspect", str(folder), "--json"])
+    assert res.exit_code == 0, res.output
+    described = json.loads(res.output)
+    assert manifest["series"]["blocks_left_out"] == described["blocks_left_out"] == written
+    assert "left_out_blocks" not in described

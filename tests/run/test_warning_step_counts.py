@@ -89,4 +89,4 @@ def test_a_patch_left_out_is_an_info_line_whatever_its_format(tmp_path, suffix):
     (line,) = [r for r in result.reading if "outlet" in r]
     assert line == "multiblock blocks left out: outlet (boundary patches: the volume blocks are read)"
     manifest = json.loads((tmp_path / "o" / "manifest.json").read_text())
-    assert manifest["series"]["blocks_left_out"] == "outlet (boundary patches: the volume blocks are read)"
+    assert manifest["series"]["blocks_left_out"] == ["outlet"]

@@ -44,7 +44,7 @@ def describe_series(path, *, scan: str = "auto", sort_by_time: bool = False) -> 
         under one name, with the copy measure reads), ``fields_left_out`` (fields a
         multiblock file's blocks do not all hold, not read: name to why), ``cell_copies_left_out`` (fields
         whose cell copy some block lacks, read from their point copy: name to why),
-        ``left_out_blocks`` (blocks of multiblock files not read: boundary patches), ``unreadable_steps``
+        ``blocks_left_out`` (blocks of multiblock files not read: boundary patches), ``unreadable_steps``
         (one line each) and ``warnings``
         (one line each, repeats over steps collapsed; also issued as warnings).
         A time that could not be read is None.
@@ -69,7 +69,7 @@ def describe_series(path, *, scan: str = "auto", sort_by_time: bool = False) -> 
     patches = [name for category, what, _ in records if issubclass(category, BlocksLeftOutNote)
                for name in left_out_names(what)]  # blocks of faces in a volume format: left out as .vtp ones
     records = [rec for rec in records if not issubclass(rec[0], BlocksLeftOutNote)]
-    desc["left_out_blocks"] = list(dict.fromkeys(desc["left_out_blocks"] + patches))
+    desc["blocks_left_out"] = list(dict.fromkeys(desc["blocks_left_out"] + patches))
     records += [(SkippedStepWarning, f"{err.what}; {err.fix}", err.where)
                 for err in desc.pop("_errors")]
     summary = collapse_warnings(records)
@@ -177,7 +177,7 @@ def _describe(series, scan: str) -> dict:
         "field_copies": _field_copies(stats),
         "fields_left_out": {name: why for name, (why, _) in sorted(first.fields.left_out.items())},
         "cell_copies_left_out": dict(sorted(first.fields.copies_left_out.items())),
-        "left_out_blocks": _left_out_blocks(first.info.path),
+        "blocks_left_out": _blocks_left_out(first.info.path),
         "unreadable_steps": [err.one_line() for err in errors],
         "_errors": errors,
     }
@@ -194,7 +194,7 @@ def _field_copies(stats: dict) -> dict:
             for name in sorted(on) if len(on[name]) == 2}
 
 
-def _left_out_blocks(path: str) -> list:
+def _blocks_left_out(path: str) -> list:
     """Names of the blocks of a multiblock step file that are not read (boundary patches)."""
     from ._multiblock import is_index_file, multiblock_blocks
 
@@ -291,8 +291,8 @@ def format_description(desc: dict) -> str:
         lines.append(f"  {name:<16} not read: {why}")
     for name, why in desc.get("cell_copies_left_out", {}).items():
         lines.append(f"  {name:<16} cell copy not read: {why} (measure reads the point copy)")
-    if desc.get("left_out_blocks"):
-        lines.append("left out    blocks " + ", ".join(desc["left_out_blocks"])
+    if desc.get("blocks_left_out"):
+        lines.append("left out    blocks " + ", ".join(desc["blocks_left_out"])
                      + " of the multiblock files (boundary patches and other polygon data; the volume blocks are read)")
     return "\n".join(lines)
 

@@ -268,8 +268,10 @@ def _page(result, series, pngs, execution, version, *, written=(), contours=Fals
     page.key_values([("series", series["path"]), ("series kind", series["kind"]),
                      ("time from", series["time_origin"]),
                      ("field read", series.get("field_read", f"'{opts.field}'")),
-                     *[(label, series[key]) for key, label in (("blocks_left_out", "blocks left out"),
-                                                               ("order", "step order")) if key in series],
+                     *([("blocks left out", ", ".join(series["blocks_left_out"])
+                         + " (boundary patches: the volume blocks are read)")]
+                       if series.get("blocks_left_out") else []),
+                     *([("step order", series["order"])] if "order" in series else []),
                      ("analyses", ", ".join(opts.analyses)), *_ran(opts),
                      ("workers", execution.get("workers")), ("scheduler", execution.get("scheduler") or "none")]
                     + ([("measured as", series["measured_as"])] if series.get("measured_as") else []))

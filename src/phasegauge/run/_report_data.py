@@ -56,25 +56,23 @@ def series_record(series) -> dict:
         except InputError:
             left_out = []
         if left_out:
-            record["blocks_left_out"] = ", ".join(left_out) + " (boundary patches: the volume blocks are read)"
+            record["blocks_left_out"] = left_out
     if getattr(series, "sort_by_time", False):
         record["order"] = "by the times in the files (sort_by_time)"
     return record
 
 
-def blocks_left_out(series, results) -> str:
-    """The multiblock blocks a run left out, in words: the polygon-data blocks of the first step's file
+def blocks_left_out(series, results) -> list:
+    """The names of the multiblock blocks a run left out: the polygon-data blocks of the first step's file
     (:func:`series_record`) and the blocks of faces written in a volume format that the steps' reads left
-    out (:class:`~phasegauge.errors.BlocksLeftOutNote`), said alike; "" when none."""
+    out (:class:`~phasegauge.errors.BlocksLeftOutNote`), listed alike; [] when none."""
     from ..errors import BlocksLeftOutNote
     from ..io._multiblock import left_out_names
 
-    shown = series_record(series).get("blocks_left_out", "").split(" (boundary patches")[0]
-    names = [n for n in shown.split(", ") if n]
+    names = list(series_record(series).get("blocks_left_out", []))
     names += [name for r in results for category, what, _ in (getattr(r, "notes", None) or [])
               if issubclass(category, BlocksLeftOutNote) for name in left_out_names(what)]
-    names = list(dict.fromkeys(names))
-    return ", ".join(names) + " (boundary patches: the volume blocks are read)" if names else ""
+    return list(dict.fromkeys(names))
 
 
 def measured_as(results, *, keep_3d: bool = False) -> dict:

@@ -419,7 +419,8 @@ def _reading(series, results) -> list:
         lines.append(f"read {sources[0]}")
     left_out = blocks_left_out(series, results)  # polygon data, and blocks of faces in a volume format, alike
     if left_out:
-        lines.append(f"multiblock blocks left out: {left_out}")
+        lines.append(f"multiblock blocks left out: {', '.join(left_out)} "
+                     "(boundary patches: the volume blocks are read)")
     return lines
 
 
