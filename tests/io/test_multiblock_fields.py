@@ -107,7 +107,7 @@ def test_a_copy_left_out_of_a_field_not_measured_or_not_preferred_gives_no_word(
     _, location = select_field(step.fields, "alpha", where=step.info.where)
     assert location == "cell"
     assert not [w for w in recwarn if "left out" in str(w.message)]
-    assert step.fields.copies_left_out.keys() == {"p"}  # kept for a run measuring p
+    assert step.fields.cell_copies_left_out.keys() == {"p"}  # kept for a run measuring p
 
 
 def test_a_field_every_block_holds_alike_gives_no_word(tmp_path, recwarn):
@@ -116,7 +116,7 @@ def test_a_field_every_block_holds_alike_gives_no_word(tmp_path, recwarn):
     blocks["lower"], blocks["upper"] = _region(0.0), _region(0.5)
     blocks.save(path)
     step = Series(path).read(0)
-    assert "alpha" in step.fields.cell_data and not step.fields.left_out
+    assert "alpha" in step.fields.cell_data and not step.fields.fields_left_out
     assert not [w for w in recwarn if "left out" in str(w.message)]
 
 
@@ -124,7 +124,7 @@ def test_a_velocity_read_from_its_point_copy_in_place_of_a_lost_cell_copy_is_war
     from phasegauge.io import StepFields
     from phasegauge.model.fields import vector_field
 
-    fields = StepFields(point_data={"U": np.ones((4, 3))}, copies_left_out={"U": "block b holds no 'U' on cells"})
+    fields = StepFields(point_data={"U": np.ones((4, 3))}, cell_copies_left_out={"U": "block b holds no 'U' on cells"})
     with pytest.warns(MeshWarning, match=r"velocity field 'U': its copy on cells is left out, as block b") as caught:
         _, location = vector_field(fields, "U", where="case.vtm, step 0")
     assert location == "point" and "--field-location" not in str(caught[0].message)  # an option of the phase only

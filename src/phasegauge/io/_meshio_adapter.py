@@ -87,10 +87,10 @@ class StepFields:
     cell_data : dict of str to ndarray of shape (n_cells,) or (n_cells, k)
     field_data : dict of str to ndarray
         Whole-dataset values (such as a stored time value).
-    left_out : dict of str to (str, str)
+    fields_left_out : dict of str to (str, str)
         Fields the file holds that were not read, with why and the fix (a multiblock file's field
         that not every block holds): the message of a field not found gives them.
-    copies_left_out : dict of str to str
+    cell_copies_left_out : dict of str to str
         Fields whose copy on cells was not read (not every block holds it) while their copy on points
         was, with why: reading the point copy in its place is warned of.
     """
@@ -98,8 +98,8 @@ class StepFields:
     point_data: dict = field(default_factory=dict)
     cell_data: dict = field(default_factory=dict)
     field_data: dict = field(default_factory=dict)
-    left_out: dict = field(default_factory=dict)
-    copies_left_out: dict = field(default_factory=dict)
+    fields_left_out: dict = field(default_factory=dict)
+    cell_copies_left_out: dict = field(default_factory=dict)
 
     def names(self) -> list:
         return sorted(set(self.point_data) | set(self.cell_data))
@@ -458,7 +458,7 @@ def step_fields(mesh: Mesh, raw, where: str, *, field_data: bool = True) -> Step
     cell_data = join_cell_data(mesh, raw.cell_data, where=where)
     fields = {k: np.asarray(v) for k, v in (raw.field_data or {}).items()} if field_data else {}
     return StepFields(point_data, cell_data, fields, dict(getattr(raw, "fields_left_out", None) or {}),
-                      dict(getattr(raw, "copies_left_out", None) or {}))
+                      dict(getattr(raw, "cell_copies_left_out", None) or {}))
 
 
 def point_fields(mesh: Mesh, point_data: dict, where: str = "") -> dict:

@@ -167,7 +167,7 @@ def read_multiblock(path: str):
                  for name in pieces[0].cell_data if _shared(pieces, "cell_data", name)}
     joined = new_mesh(points, cells, point_data=point_data, cell_data=cell_data,
                       field_data=dict(pieces[0].field_data or {}))
-    joined.fields_left_out, joined.copies_left_out = fields_left_out(pieces, named, path, point_data, cell_data)
+    joined.fields_left_out, joined.cell_copies_left_out = fields_left_out(pieces, named, path, point_data, cell_data)
     joined = _with_own_time(joined, path, named[0][0])
     joined.block_sizes = block_sizes  # points merged across blocks are the join, not duplicates
     joined.cell_rows = rows

@@ -36,7 +36,7 @@ def named_field(fields, name: str, *, where: str = "", role: str = "field", fix:
         What to do when the field is missing.
     order : tuple of {'point', 'cell'}
         Where to look first when both hold the name. Reading the point copy where cells come first and
-        the cell copy was left out (``fields.copies_left_out``: not every block of a multiblock file holds
+        the cell copy was left out (``fields.cell_copies_left_out``: not every block of a multiblock file holds
         it) gives a :class:`~phasegauge.errors.MeshWarning`.
 
     Returns
@@ -52,7 +52,7 @@ def named_field(fields, name: str, *, where: str = "", role: str = "field", fix:
     for location in order:
         data = fields.point_data if location == "point" else fields.cell_data
         if name in data:
-            swapped = (getattr(fields, "copies_left_out", None) or {}).get(name)
+            swapped = (getattr(fields, "cell_copies_left_out", None) or {}).get(name)
             if swapped and location == "point" and order[0] == "cell":  # the cell copy it prefers was lost
                 import warnings
 
@@ -64,7 +64,7 @@ def named_field(fields, name: str, *, where: str = "", role: str = "field", fix:
                                           where=where), stacklevel=3)
             return np.asarray(data[name]), location
     names = sorted(set(fields.point_data) | set(fields.cell_data))
-    left_out = getattr(fields, "left_out", None) or {}
+    left_out = getattr(fields, "fields_left_out", None) or {}
     if name in left_out:  # a field the file holds in part (a multiblock file's field some blocks lack)
         why, fix = left_out[name]
         raise FieldNotFoundError(f"{role} '{name}' is not read: {why}", where=where, fix=fix)
