@@ -90,7 +90,7 @@ def test_a_run_with_skipped_last_steps_names_its_time_and_the_campaign_warns(tmp
     texts = [str(w.message) for w in caught]
     found = [str(w.message) for w in caught if w.category is SeriesWarning and "skipped steps" in str(w.message)]
     assert len(found) == 1, texts
-    assert "2 runs skipped steps (q1: 2, q1.5: 1)" in found[0] and "(q1: 0, q1.5: 1)" in found[0]
+    assert "2 runs skipped steps (q1: 2, q1.5: 1)" in found[0] and "(q1: 0.0, q1.5: 1.0)" in found[0]
     assert "time_to" in found[0]
     # each run's own warnings name the run: every run's files have the same names
     assert any(t.startswith("run q1.5: chan_002.vtu, step 2: step skipped") for t in texts), texts
