@@ -175,7 +175,7 @@ def test_several_blocks_holding_a_field_are_named_for_a_vtm_of_their_own(tmp_pat
 
 
 def test_datasets_named_alike_in_several_regions_are_named_by_their_files(tmp_path):
-    """foamToVTK's layout of several regions: each region block holds a dataset named 'internal'."""
+    """A converter's layout of several regions: each region block holds a dataset named 'internal'."""
     _fluid_and_solid(tmp_path / "cht.vtm")
     (tmp_path / "regions.vtm").write_text(
         '<?xml version="1.0"?>\n<VTKFile type="vtkMultiBlockDataSet" version="1.0">\n<vtkMultiBlockDataSet>\n'

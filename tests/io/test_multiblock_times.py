@@ -81,8 +81,8 @@ def test_the_same_time_in_vtm_and_block_gives_no_warning(tmp_path, recwarn):
     assert not [w for w in recwarn if issubclass(w.category, MeshWarning)]
 
 
-def _paraviewo_step(folder, k, time):
-    """A step as PolyFEM's paraviewo ``VTMWriter`` writes it: the ``.vtm``'s TimeValue is text with no
+def _untyped_time_step(folder, k, time):
+    """A step as some simulation codes' own writers leave it: the ``.vtm``'s TimeValue is text with no
     ``format`` (nor ``NumberOfTuples``), and its block, written by VTK, stores the same time."""
     volume = _volume(time)
     volume.field_data["TimeValue"] = [time]
@@ -100,7 +100,7 @@ def _paraviewo_step(folder, k, time):
 def test_a_vtm_time_with_no_format_is_text(tmp_path, recwarn):
     from phasegauge.io._multiblock import own_time
 
-    paths = [_paraviewo_step(tmp_path, k, t) for k, t in enumerate(TIMES)]
+    paths = [_untyped_time_step(tmp_path, k, t) for k, t in enumerate(TIMES)]
     # VTK's reader decodes nothing from the .vtm's own array (no format), so the references are the blocks'
     # TimeValue as VTK reads them and the .vtm's text
     assert np.asarray(pyvista.read(paths[1]).field_data["TimeValue"]).size == 0

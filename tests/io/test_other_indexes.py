@@ -1,12 +1,14 @@
-"""Index files another program writes beside the step files (ParaView's ``.pvd``, the JSON ``*.series``) are not
-read, but their times are not dropped without a word: one warning names them and the way to give the times.
+"""Index files another program writes beside the step files (an XML collection, a JSON file series), told by
+their content, are not read, but their times are not dropped without a word: one warning names them and the way
+to give the times.
 
-Outside references: the ``.pvd`` is read by VTK's own collection reader (pyvista's ``PVDReader``) and the
-``.series`` by Python's json module, both giving the times the folder's files do not store.
+Outside references: Python's XML parser (xml.etree) and json module read the times the two index files list and
+the folder's files do not store.
 """
 
 import json
 import warnings
+import xml.etree.ElementTree as ElementTree
 
 import meshio
 import numpy as np
@@ -33,11 +35,11 @@ def _files(folder, stored=False):
 
 
 def _indexes(folder, names):
-    (folder / "out.pvd").write_text(
+    (folder / "run_times.xml").write_text(
         '<?xml version="1.0"?>\n<VTKFile type="Collection" version="0.1">\n<Collection>\n'
         + "".join(f'<DataSet timestep="{t}" file="{n}"/>\n' for n, t in zip(names, TIMES))
         + "</Collection>\n</VTKFile>\n")
-    (folder / "out.vtu.series").write_text(json.dumps(
+    (folder / "run_times.json").write_text(json.dumps(
         {"file-series-version": "1.0", "files": [{"name": n, "time": t} for n, t in zip(names, TIMES)]}))
 
 
@@ -48,20 +50,21 @@ def _series_warnings(path):
     return series, [w.message for w in caught if issubclass(w.category, SeriesWarning)]
 
 
-def test_a_pvd_and_a_series_file_beside_unstamped_steps_are_named_once(tmp_path):
-    folder = tmp_path / "pvd"
+def test_an_xml_collection_and_a_json_series_beside_unstamped_steps_are_named_once(tmp_path):
+    folder = tmp_path / "indexed"
     names = _files(folder)
     _indexes(folder, names)
-    # the times are there: VTK's collection reader and json read them (and the files store none)
-    assert pyvista.PVDReader(str(folder / "out.pvd")).time_values == pytest.approx(TIMES)
-    assert [f["time"] for f in json.loads((folder / "out.vtu.series").read_text())["files"]] == list(TIMES)
+    # the times are there: Python's XML parser and json read them (and the files store none)
+    listed = ElementTree.parse(folder / "run_times.xml").getroot().iter("DataSet")
+    assert [float(d.get("timestep")) for d in listed] == pytest.approx(TIMES)
+    assert [f["time"] for f in json.loads((folder / "run_times.json").read_text())["files"]] == list(TIMES)
     assert "TimeValue" not in meshio.read(folder / names[1]).field_data
     for path in (str(folder), str(folder / "out_*.vtu")):
         series, found = _series_warnings(path)
         assert series.times.tolist() == [0, 1, 2, 3]  # not read: the step numbers, now said
         named = [w for w in found if "another program's index" in w.what]
         assert len(named) == 1
-        assert named[0].what.startswith("out.pvd, out.vtu.series beside the step files list their times")
+        assert named[0].what.startswith("run_times.json, run_times.xml beside the step files list their times")
         assert "'time,path' listing" in named[0].what
 
 
@@ -78,10 +81,15 @@ def test_no_word_when_the_files_store_their_times_or_the_index_names_other_files
     _files(other / "run" / "steps")  # deeper than the folder above the step files
     _, found = _series_warnings(other / "run" / "steps")
     assert not [w for w in found if "another program's index" in w.what]
+    notes = tmp_path / "notes"  # a file naming the steps that lists no times is no index: told by content
+    names = _files(notes)
+    (notes / "run_notes.txt").write_text("started from " + names[0] + "\n")
+    _, found = _series_warnings(notes)
+    assert not [w for w in found if "another program's index" in w.what]
 
 
 def test_a_listing_beside_the_index_gives_the_times_without_the_warning(tmp_path):
-    folder = tmp_path / "pvd"
+    folder = tmp_path / "indexed"
     names = _files(folder)
     _indexes(folder, names)
     (folder / "times.steps").write_text("".join(f"{t},{n}\n" for n, t in zip(names, TIMES)))

@@ -27,7 +27,6 @@ from __future__ import annotations
 import dataclasses
 import glob as globmod
 import os
-import re
 import warnings
 from dataclasses import dataclass
 
@@ -44,8 +43,8 @@ from ._meshio_xdmf import XdmfTimeSeries
 from ._claims import CheckedFiles, check_hdf5_claims
 from ._series_gaps import (RESOLUTION_SHARE, coarse_time_share, repeated_times_fix, restart_problem, two_times,
                            warn_series_gaps, warn_time_resolution)
-from ._series_names import (check_one_family, digits_masked, first_three, natural_key, warn_decimal_doubt,
-                            warn_other_indexes, with_folder_times)
+from ._series_names import (check_one_family, digits_masked, first_three, is_xml_collection, natural_key,
+                            warn_decimal_doubt, warn_other_indexes, with_folder_times)
 from ._xdmf import (collection_times, collections_among, grid_time, included_files, lone_collection,
                     temporal_grids, xdmf_data_files)
 
@@ -536,7 +535,7 @@ def _is_xml_collection(path: str) -> bool:
             head = handle.read(2048)
     except OSError:
         return False
-    return re.search(rb'<VTKFile[^>]*type="Collection"', head) is not None
+    return is_xml_collection(head)
 
 
 def _without_included(files: list, collections: dict) -> list:

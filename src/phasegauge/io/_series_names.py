@@ -18,10 +18,11 @@ import warnings
 import numpy as np
 
 from ..errors import SeriesError, SeriesWarning
-from ._formats import stores_time
+from ._formats import mesh_suffixes, stores_time
 
 __all__ = ["NAME_NUMBER", "INTERVAL_TOLERANCE", "name_number", "natural_key", "digits_masked", "check_one_family",
-           "warn_decimal_doubt", "with_folder_times", "first_three", "warn_other_indexes", "OTHER_INDEX_SUFFIXES"]
+           "warn_decimal_doubt", "with_folder_times", "first_three", "warn_other_indexes", "is_xml_collection",
+           "lists_step_times"]
 
 #: a number in a file or folder name, as names are ordered, masked and numbered: digits, with a
 #: decimal part and an exponent if they have them (solvers' time folders ``0.05`` and ``1e-05``)
@@ -76,19 +77,32 @@ def with_folder_times(files: list, steps: list, checked=None) -> list:
             if s.time_origin == "index" else s for s, n in zip(steps, names)]
 
 
-#: index files other programs write beside a series' step files, naming them with their times: ParaView's XML
-#: collection (``.pvd``) and the JSON file series (``out.vtu.series``, as ParaView and OpenFOAM's foamToVTK write
-#: it). Not read (the times come from open formats: the files, their folders' names or our own listing)
-OTHER_INDEX_SUFFIXES = (".pvd", ".series")
+def is_xml_collection(head: bytes) -> bool:
+    """Whether a file's head is a VTK-style XML collection of other files (root ``VTKFile`` of
+    ``type="Collection"``), whatever the file's name."""
+    return re.search(rb'<VTKFile[^>]*type="Collection"', head) is not None
+
+
+def lists_step_times(head: bytes) -> bool:
+    """Whether a file's head is an index another program writes beside a series' step files, naming them
+    with their times: an XML collection (:func:`is_xml_collection`) or a JSON file series (an object whose
+    ``files`` entries carry a ``name`` and a ``time``). Told by content, not by name; not read (the times
+    come from open formats: the files, their folders' names or our own listing)."""
+    if is_xml_collection(head):
+        return True
+    return re.match(rb"\s*\{", head) is not None and b'"files"' in head and b'"time"' in head
+
 
 #: how much of such an index file is searched for the step files' names (bytes)
 _INDEX_HEAD = 1 << 22
+#: how much of a file tells whether it is such an index (bytes)
+_KIND_HEAD = 2048
 
 
 def warn_other_indexes(files: list, where: str, steps: list) -> list:
     """Warn once, naming them, of index files another program wrote beside the step files
-    (:data:`OTHER_INDEX_SUFFIXES`, in the step files' folders or the folder above) that name some of
-    them, when a step stores no time: the times they list are not read, and the steps take their
+    (:func:`lists_step_times`: other than mesh files, in the step files' folders or the folder above) that
+    name some of them, when a step stores no time: the times they list are not read, and the steps take their
     numbers. Multiblock files (``.vtm``) that name some of them and store a time of their own (VTK's
     multiblock writer puts it there, not in the blocks) are counted too: given the blocks' files, their
     times are not read. Returns the index files named."""
@@ -99,6 +113,7 @@ def warn_other_indexes(files: list, where: str, steps: list) -> list:
     folders = {os.path.dirname(os.path.abspath(f)) for f in files}
     folders |= {os.path.dirname(f) for f in folders}
     bases = {os.path.basename(f).encode() for f in files}
+    meshes = mesh_suffixes()
     found = []
     for folder in sorted(folders):
         try:
@@ -108,11 +123,14 @@ def warn_other_indexes(files: list, where: str, steps: list) -> list:
         for name in names:
             index = os.path.join(folder, name)
             multiblock = name.lower().endswith(".vtm")
-            if not (multiblock or name.lower().endswith(OTHER_INDEX_SUFFIXES)) or not os.path.isfile(index):
-                continue
+            if (not multiblock and name.lower().endswith(meshes)) or not os.path.isfile(index):
+                continue  # (a mesh file is no index: not opened)
             try:
                 with open(index, "rb") as handle:
-                    text = handle.read(_INDEX_HEAD)
+                    text = handle.read(_KIND_HEAD)
+                    if not (multiblock or lists_step_times(text)):
+                        continue
+                    text += handle.read(_INDEX_HEAD - _KIND_HEAD)
             except OSError:
                 continue
             if any(base in text for base in bases) and not (multiblock and not own_time(index, decode=False)):
