@@ -17,7 +17,7 @@ import click
 from . import __version__
 from ._cli_options import (_add, _box, _command_line, _floats, _measure_options, _mixture_options, _mixture_values,
                            _old_flags, _point_options)
-from .errors import PhasegaugeError, PhasegaugeWarning
+from .errors import PhasegaugeError, PhasegaugeWarning, numbers_masked
 
 
 class _Group(click.Group):
@@ -98,16 +98,16 @@ class _WarningPrinter:
         self.seen = set()
 
     def __call__(self, message, category, filename, lineno, file=None, line=None):
-        import re
-
         text = " ".join(str(message).split())
         if not issubclass(category, PhasegaugeWarning):
             if not self.debug:
                 return
             text = f"{category.__name__}: {text} ({os.path.basename(filename)}:{lineno})"
-        # numbers masked, but not in a campaign run's label (``run q0.5`` and ``run q2`` are two runs)
-        label = message.where if isinstance(message, PhasegaugeWarning) and message.where.startswith("run ") else ""
-        key = (category, label, re.sub(r"[-+]?(\d+\.?\d*|\.\d+)([eE][-+]?\d+)?", "#", text))
+        # numbers masked, but not in a campaign run's label (``run q0.5`` and ``run q2`` are two runs; the
+        # files after it are masked with the text, so one warning from several files of a run is said once)
+        where = message.where if isinstance(message, PhasegaugeWarning) else ""
+        label = where.partition(",")[0] if where.startswith("run ") else ""
+        key = (category, label, numbers_masked(text))
         if key in self.seen:
             return
         self.seen.add(key)

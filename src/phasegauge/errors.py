@@ -37,6 +37,7 @@ __all__ = [
     "BlocksLeftOutNote",
     "OldNameWarning",
     "collapse_warnings",
+    "numbers_masked",
     "count_steps",
     "short_text",
     "cut_middle",
@@ -209,6 +210,14 @@ class OldNameWarning(PhasegaugeWarning, FutureWarning):
     """
 
 
+def numbers_masked(text: str) -> str:
+    """``text`` with every number (signs, decimals, exponents) written ``#``: warnings that differ in their
+    figures only are one kind (:func:`collapse_warnings`, the command line's printer)."""
+    import re
+
+    return re.sub(r"[-+]?(\d+\.?\d*|\.\d+)([eE][-+]?\d+)?", "#", text)
+
+
 def collapse_warnings(records) -> list:
     """Collapse warnings repeated over steps into one line each.
 
@@ -231,11 +240,9 @@ def collapse_warnings(records) -> list:
     found (``run/case_0.vtm``) and again when it is measured
     (``case_0.vtm, step 0``) is one step (:func:`count_steps`).
     """
-    import re
-
     groups: dict = {}
     for category, what, where in records:
-        key = (category, re.sub(r"[-+]?(\d+\.?\d*|\.\d+)([eE][-+]?\d+)?", "#", what))
+        key = (category, numbers_masked(what))
         entry = groups.get(key)
         if entry is None:
             groups[key] = [category, what, where, [where]]

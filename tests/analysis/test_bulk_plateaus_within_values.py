@@ -50,6 +50,8 @@ def test_the_quick_start_matrix_at_step_30_reads_its_own_bulk(step):
     smallest, median = _low_side(c)
     assert smallest <= low <= median
     assert low == pytest.approx(0.0205, abs=0.0025)  # steps 29 and 31: 0.0192 and 0.0210 (our threshold)
+    # numpy on the same raw values: the median of c > 0.5 within 0.05 of its 99.5th percentile (the plateau
+    # rule's first pass) is 1.0095-1.0100 over steps 29-31; 5e-4: our tolerance
     assert high == pytest.approx(1.0097, abs=5e-4)
 
 
@@ -66,6 +68,7 @@ def test_the_quick_start_widths_and_drop_at_step_30_follow_their_neighbours(tmp_
     drops = result.droplets
     largest = drops.loc[drops.groupby("step").volume.idxmax()].set_index("step")
     assert largest.loc[29, "volume"] < largest.loc[30, "volume"] < largest.loc[31, "volume"]
+    # a circle's circularity is 1 (perimeter of the equal-area circle over the perimeter); 0.01: our threshold
     assert largest.loc[30, "circularity"] == pytest.approx(1.0, abs=0.01)
 
 

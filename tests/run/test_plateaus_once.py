@@ -23,9 +23,9 @@ def test_bulk_plateaus_are_computed_once_per_step(tmp_path, monkeypatch):
     calls = []
     real = _interface_width.bulk_plateaus
 
-    def counted(c_point, level, mesh=None):
+    def counted(c_point, level, mesh=None, **given):
         calls.append(level)
-        return real(c_point, level, mesh)
+        return real(c_point, level, mesh, **given)
 
     monkeypatch.setattr(_interface_width, "bulk_plateaus", counted)
     monkeypatch.setattr("phasegauge.analysis.interface.bulk_plateaus", counted)

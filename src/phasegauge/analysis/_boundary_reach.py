@@ -92,6 +92,12 @@ def _boundary_tree(mesh, periodic: tuple):
     return cKDTree(centre[keep]), normal[keep]
 
 
+def boundary_face_tree(mesh, wrapped: tuple = ()):
+    """:func:`_boundary_tree` of the mesh with the planes of the ``wrapped`` columns left out (made once a
+    mesh and kept): ``(tree, normals)``, or None where no boundary is left."""
+    return mesh.memo(("boundary_face_tree", wrapped), lambda: _boundary_tree(mesh, wrapped))
+
+
 def _boundary_buckets(points: np.ndarray) -> tuple:
     """A grid of buckets over the boundary's points and, per bucket, a lower bound of the distance from
     any place in it to the nearest boundary point: the Euclidean distance transform of the buckets that
@@ -132,7 +138,7 @@ def boundary_share(mesh, centroids: np.ndarray, sizes: np.ndarray, reach: float,
         return float("nan")
     axes = list(mesh.plane_axes) if mesh.dimension == 2 else [0, 1, 2]  # the elements' 3D points, in those axes
     wrapped = periodic_columns(mesh, periodic)
-    found = mesh.memo(("boundary_face_tree", wrapped), lambda: _boundary_tree(mesh, wrapped))
+    found = boundary_face_tree(mesh, wrapped)
     if found is None:
         return 0.0
     tree, face_normals = found

@@ -22,7 +22,7 @@ REACH_CELLS = 4.0
 UNREACHED_SHARE = 0.6
 
 
-def bulk_plateaus(c_point: np.ndarray, level: float, mesh=None) -> tuple[float, float, float]:
+def bulk_plateaus(c_point: np.ndarray, level: float, mesh=None, *, extremes=None) -> tuple[float, float, float]:
     """Bulk values of the two phases and the tail cut-off of the width integrals.
 
     Parameters
@@ -35,6 +35,9 @@ def bulk_plateaus(c_point: np.ndarray, level: float, mesh=None) -> tuple[float, 
         The mesh of the points: a plateau's share of its side is then of the points'
         volumes (:func:`point_volumes`), so a mesh refined towards the interface does
         not hide it; without it, of the points' count.
+    extremes : CornerExtremes, optional
+        :func:`.corners.corner_extremes` of ``c_point`` on ``mesh`` where the caller has them (the
+        widths do): the cells the level crosses are read from them, not formed again.
 
     Returns
     -------
@@ -124,7 +127,7 @@ def bulk_plateaus(c_point: np.ndarray, level: float, mesh=None) -> tuple[float, 
         # the level holds all of it)
         unreached = (short and near.size >= 0.5 * side.size
                      and (_holds(side, g, mesh, mask, finite)
-                          and _beyond_reach(c_point, level, mesh, mask, finite, g, ideal)
+                          and _beyond_reach(c_point, level, mesh, mask, finite, g, ideal, extremes)
                           if mesh is not None else _holds(side, g, None, mask, finite, UNREACHED_SHARE)
                           and abs(g - ideal) < abs(g - level)))
         # beyond 0.25 of the ideal, a plateau must hold a fifth of its side (a bulk, as a partially
@@ -158,7 +161,7 @@ def _holds(side: np.ndarray, g: float, mesh, mask: np.ndarray, finite: np.ndarra
 
 
 def _beyond_reach(c_point: np.ndarray, level: float, mesh, mask: np.ndarray, finite: np.ndarray, g: float,
-                  ideal: float) -> bool:
+                  ideal: float, extremes=None) -> bool:
     """Whether :data:`PLATEAU_SHARE` of a side (by the points' volumes) lies beyond the interface's reach from the
     centroids of the cells the level crosses, on points whose profile could not be a logistic tail cut by the domain.
 
@@ -179,10 +182,10 @@ def _beyond_reach(c_point: np.ndarray, level: float, mesh, mask: np.ndarray, fin
     """
     from scipy.spatial import cKDTree
 
-    from ._boundary_reach import _boundary_faces
+    from ._boundary_reach import boundary_face_tree
 
     c = np.asarray(c_point, dtype=np.float64)
-    ext = corner_extremes(mesh, c)  # (the mesh-wide incidence is not made for it)
+    ext = corner_extremes(mesh, c) if extremes is None else extremes  # (no mesh-wide incidence made for it)
     crossed = np.flatnonzero((ext.low < level) & (ext.high > level))
     del ext
     if crossed.size == 0:
@@ -204,11 +207,11 @@ def _beyond_reach(c_point: np.ndarray, level: float, mesh, mask: np.ndarray, fin
     needed = PLATEAU_SHARE * float(volume.sum())
     if float(volume[far].sum()) < needed:
         return False
-    faces = _boundary_faces(mesh)
+    faces = boundary_face_tree(mesh)  # (every boundary face, kept on the mesh)
     if faces is not None:  # a cut tail's far points lie within 6.9 eps of its contour and a cell less the reach
         wall = eps * np.log(1.0 / PLATEAU_TOLERANCE) + cell - reach  # of the boundary that cut it
         if wall > 0:
-            far = far[np.isinf(cKDTree(faces[0]).query(at[points[far]], distance_upper_bound=wall)[0])]
+            far = far[np.isinf(faces[0].query(at[points[far]], distance_upper_bound=wall)[0])]
     return float(volume[far].sum()) >= needed
 
 

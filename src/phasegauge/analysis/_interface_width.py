@@ -130,7 +130,8 @@ class PreparedWidths:
         else:
             found = _found_contour(mesh, self.c_point, self.level, extremes, merge)
         with side or nullcontext():  # waited for however the integrals end
-            low, high, tail = bulk_plateaus(self.c_point, self.level, mesh) if plateaus is None else plateaus
+            low, high, tail = (bulk_plateaus(self.c_point, self.level, mesh, extremes=extremes) if plateaus is None
+                               else plateaus)
             self.plateaus = (low, high, tail)
             self.cell_mixed = _cell_mixed(mesh, indicator, low, high, tail)
             if (low, high) == (0.0, 1.0):

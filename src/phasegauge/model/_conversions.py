@@ -54,16 +54,31 @@ def corner_sums(mesh: Mesh, values: np.ndarray, finite: np.ndarray) -> tuple[np.
     return total, count
 
 
-def point_stencil(mesh: Mesh):
-    """(point, cell) pairs of the point-cell incidence with centroid offsets, grouped by point."""
+def point_stencil(mesh: Mesh, span: tuple | None = None, scale: float | None = None):
+    """(point, cell) pairs of the point-cell incidence with centroid offsets and inverse-distance weights,
+    grouped by point: ``(rows, cols, dx, w, indptr)``. With ``span`` ``(p0, p1)``, the pairs of those points
+    only (``rows`` still the points' own numbers, ``indptr`` from 0); ``scale``: the squared median cell
+    size that floors the distances (formed here if not given)."""
     at = mesh._incidence_t
-    rows = np.repeat(np.arange(mesh.n_points), np.diff(at.indptr))
-    cols = at.indices.astype(np.int64)
+    p0, p1 = (0, mesh.n_points) if span is None else span
+    a, b = int(at.indptr[p0]), int(at.indptr[p1])
+    indptr = at.indptr if span is None else (at.indptr[p0:p1 + 1] - a).astype(np.int64)
+    rows = np.repeat(np.arange(p0, p1), np.diff(indptr))
+    cols = at.indices[a:b].astype(np.int64)
     dx = mesh.cell_centroids[cols] - mesh.coordinates[rows]
     dist2 = np.einsum("nd,nd->n", dx, dx)
-    scale = np.median(mesh.cell_sizes) ** 2 if mesh.n_cells else 1.0
+    if scale is None:
+        scale = np.median(mesh.cell_sizes) ** 2 if mesh.n_cells else 1.0
     w = 1.0 / np.maximum(dist2, 1e-12 * scale)
-    return rows, cols, dx, w, at.indptr
+    return rows, cols, dx, w, indptr
+
+
+def _chunk_bounds(heads: np.ndarray) -> np.ndarray:
+    """Item numbers splitting items whose pairs start at ``heads`` (increasing; the last entry the pairs'
+    end) into chunks of about :data:`_FIT_PAIRS` pairs, an item never split: from 0 to the item count."""
+    k = heads.size - 1
+    return np.unique(np.concatenate([[0], np.searchsorted(heads, np.arange(_FIT_PAIRS, heads[-1], _FIT_PAIRS)),
+                                     [k]]))
 
 
 class PointFit(NamedTuple):
@@ -143,21 +158,16 @@ def _chunked_fit(mesh: Mesh, threads: int = 1) -> PointFit:
     from ._threads import ordered_map
 
     at = mesh._incidence_t
-    indptr, n, d = at.indptr, mesh.n_points, mesh.dimension
+    indptr, d = at.indptr, mesh.dimension
     scale = np.median(mesh.cell_sizes) ** 2 if mesh.n_cells else 1.0
-    centroids, coordinates = mesh.cell_centroids, mesh.coordinates  # made before the threads read them
+    mesh.cell_centroids, mesh.coordinates  # noqa: B018  (made before the threads read them)
     coef = np.empty(at.indices.size)
-    bounds = np.unique(np.concatenate([[0], np.searchsorted(indptr, np.arange(_FIT_PAIRS, indptr[-1], _FIT_PAIRS)),
-                                       [n]]))
+    bounds = _chunk_bounds(indptr)
 
     def chunk(span):  # writes its own slice of coef only
         p0, p1 = span
         a, b = int(indptr[p0]), int(indptr[p1])
-        local = (indptr[p0:p1 + 1] - a).astype(np.int64)
-        rows = np.repeat(np.arange(p0, p1), np.diff(local))
-        cols = at.indices[a:b].astype(np.int64)
-        dx = centroids[cols] - coordinates[rows]
-        w = 1.0 / np.maximum(np.einsum("nd,nd->n", dx, dx), 1e-12 * scale)
+        rows, cols, dx, w, local = point_stencil(mesh, span, scale)
         part = _fit_of(rows - p0, cols, dx, w, local, d, p1 - p0)
         coef[a:b] = part.coef
         return part.starts + a, part.points + p0, part.posed
@@ -212,10 +222,8 @@ def _fitted_values(fit: PointFit, flat: np.ndarray, fallback: np.ndarray, limite
     out = fallback.copy()
     if not fit.posed.any():
         return out
-    m = fit.cols.size
-    heads = np.append(fit.starts, m)  # each point's first pair, and the end
-    bounds = np.unique(np.concatenate([[0], np.searchsorted(heads, np.arange(_FIT_PAIRS, m, _FIT_PAIRS)),
-                                       [fit.starts.size]]))
+    heads = np.append(fit.starts, fit.cols.size)  # each point's first pair, and the end
+    bounds = _chunk_bounds(heads)
     for j0, j1 in zip(bounds[:-1].tolist(), bounds[1:].tolist()):
         a, b = int(heads[j0]), int(heads[j1])
         keep = fit.posed[j0:j1]

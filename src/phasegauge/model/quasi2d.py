@@ -183,6 +183,7 @@ def _build(mesh: Mesh) -> Quasi2D | None:
             continue
         built = _lower_faces(mesh, int(axis), lo, hi, tolerance)
         if built is not None:
+            built.mesh.file_cells = mesh.file_cells  # the cells keep their order: and their file's numbers
             return built
     return None
 

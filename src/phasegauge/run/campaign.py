@@ -121,7 +121,7 @@ def campaign_warning(table, times) -> str | None:
     ``times``: every run's output times (its
     steps.csv ``time``). A run of one step that skipped none (a steady result) is not compared.
     """
-    from ..analysis.convergence import span_reach
+    from ..analysis.convergence import covered_span, span_reach
 
     parts = []
     skipped = [(run, int(n)) for run, n in zip(table["run"], table["skipped_steps"]) if n]
@@ -132,8 +132,8 @@ def campaign_warning(table, times) -> str | None:
     early = []
     if compared:
         latest = max(t for _, t in compared)
-        reach = max(span_reach(*times), 1e-12 * max(1.0, abs(latest)))
-        early = [(run, t) for run, t in compared if t < latest - reach]
+        first, _ = covered_span([latest], span_reach(*times))  # the latest time less the span's reach
+        early = [(run, t) for run, t in compared if t < first]
         if early:
             # times written as the CSV tables write them (repr: the shortest text that reads back the same float)
             parts.append(f"{_runs(len(early))} end{'s' if len(early) == 1 else ''} before t = {latest!r}, the "

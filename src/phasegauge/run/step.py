@@ -173,8 +173,6 @@ def flatten_step(step, options):
         return step, None
     fields = replace(step.fields, point_data={name: np.asarray(values)[flat.points]
                                               for name, values in step.fields.point_data.items()})
-    if getattr(step.mesh, "file_cells", None) is not None:  # the cells keep their order: and their file's numbers
-        flat.mesh.file_cells = step.mesh.file_cells
     return replace(step, mesh=flat.mesh, fields=fields), flat
 
 
@@ -374,8 +372,7 @@ def _phase_analyses(step, mesh, ind, options, result, m: dict, velocity: tuple, 
 
 def _file_cells(mesh):
     """The file's number of each cell of ``mesh`` where it is not the mesh's own (a contour's ``cell``), or None."""
-    numbers = getattr(mesh, "file_cells", None)
-    return mesh.cell_parents if numbers is None else numbers
+    return mesh.cell_parents if mesh.file_cells is None else mesh.file_cells
 
 
 def _label_droplets(mesh, ind, options, u_cell, contour, plateaus):
