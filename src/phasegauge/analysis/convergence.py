@@ -5,4 +5,5 @@ from ._grid_convergence import (CONVERGENCE_COLUMNS, CONVERGENCE_FIELDS, GCI_SAF
                                 representative_cell_size)
 
 __all__ = ["grid_convergence", "representative_cell_size", "convergence_table", "droplet_integrals",
-           "paired_times", "span_reach", "covered_span", "GCI_SAFETY_FACTOR", "CONVERGENCE_FIELDS", "CONVERGENCE_COLUMNS"]
+           "paired_times", "span_reach", "covered_span", "GCI_SAFETY_FACTOR", "CONVERGENCE_FIELDS",
+           "CONVERGENCE_COLUMNS"]
