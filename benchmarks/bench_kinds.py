@@ -5,7 +5,8 @@ Runs, one configuration at a time in fresh child processes (the jobs of ``bench_
 
 * ``tetra``, ``grid``, ``hexahedron``, ``hexahedron-cells``: ``bench_measure.py``'s XDMF series (a
   grid split into tetrahedra, the regular grid of hexahedra, the jittered hexahedra, the same with the
-  field on the cells), configurations ``raw``, ``baseline`` and ``serial``;
+  field on the cells), configurations ``raw``, ``baseline``, ``serial`` and ``serial-warm`` (its peak
+  only: the same run after one small run of the kind in its process, see ``bench_measure.py``);
 * ``polyhedron``: ``bench_polyhedra.py``'s folder of VTK polyhedra (the jittered hexahedra
   written as polyhedra, which the reader takes as hexahedra), configurations ``baseline``
   (pyvista on the polyhedra) and ``polyhedra`` (``measure``);
@@ -26,7 +27,9 @@ and prints one markdown table: wall and CPU seconds of the baseline and of ``mea
 ratio, the first step, the later steps' median, microseconds per cell-step, peak memory over one
 step's mesh and fields (the cells as hexahedra or tetrahedra in XDMF: points, int64 corners, one field),
 peak memory over one step as the series' own file holds it (for the polyhedra their face streams
-too: 4.1x the hexahedra's bytes, 6x where every face is two triangles), and beside them the
+too: 4.1x the hexahedra's bytes, 6x where every face is two triangles), the peak over one step's mesh
+and fields of a process that ran ``measure`` once before on a small series (the XDMF kinds: without
+what a first run loads once, about 20 MB), and beside them the
 previous round's ratio, per cell-step time and peak from ``previous_round.json`` (figures copied from ``RESULTS.md``, each with its section).
 
 Usage::
@@ -64,6 +67,7 @@ POLYHEDRAL_SERIES = {"polyhedron": "polyhedra", "polyhedron-mixed": "split", "po
                      "polyhedron-split": "triangulated", "polyhedron-raw": "raw"}
 COLUMNS = ("kind", "cells", "baseline s (cpu)", "measure s (cpu)", "measure / baseline wall (cpu)",
            "first step s", "later steps s", "us per cell-step", "peak / step bytes", "peak / the file's step bytes",
+           "peak after a small run / step bytes",
            "previous: measure / baseline", "previous: us per cell-step", "previous: peak / step bytes")
 
 
@@ -73,8 +77,11 @@ def run_measure_kind(folder: str, kind: str, millions: float, steps: int) -> dic
     bench_measure._warm_file_cache(info["path"])
     base = bench_measure.run_child("baseline", info)
     ser = bench_measure.run_child("serial", info)
+    warm = bench_measure.run_child("serial-warm", info)
     peak = max(ser["peak_first_half"], ser["peak_second_half"])
-    return _row(kind, info["cells"], base, ser, peak / info["step_bytes"], peak / info["step_bytes"])
+    row = _row(kind, info["cells"], base, ser, peak / info["step_bytes"], peak / info["step_bytes"])
+    row["peak_x_step_warm"] = max(warm["peak_first_half"], warm["peak_second_half"]) / info["step_bytes"]
+    return row
 
 
 def run_polyhedra(folder: str, millions: float, steps: int, kind: str = "polyhedron", baselines=None) -> dict:
@@ -116,7 +123,8 @@ def table(rows, previous) -> str:
                  f"{r['baseline_s']:.2f} ({r['baseline_cpu']:.2f})", f"{r['measure_s']:.2f} ({r['measure_cpu']:.2f})",
                  f"{r['measure_s'] / r['baseline_s']:.2f} ({r['measure_cpu'] / r['baseline_cpu']:.2f})",
                  f"{r['first_step_s']:.2f}", f"{r['later_step_s']:.3f}", f"{r['us_per_cell_step']:.2f}",
-                 f"{r['peak_x_step']:.1f}", f"{r.get('peak_x_file', float('nan')):.1f}"]
+                 f"{r['peak_x_step']:.1f}", f"{r.get('peak_x_file', float('nan')):.1f}",
+                 f"{r['peak_x_step_warm']:.1f}" if "peak_x_step_warm" in r else "-"]
         cells += [str(before.get(key, "-")) for key in ("measure_over_baseline", "us_per_cell_step", "peak_x_step")]
         lines.append("| " + " | ".join(cells) + " |")
     return "\n".join(lines)

@@ -22,7 +22,11 @@ file cache):
   ``connectivity`` with per-droplet volume and centroid, phase volume and moments by
   ``integrate_data``, 20 ``slice`` + ``integrate_data`` cross sections along x;
 * ``serial``: ``phasegauge.measure(path, 'c', section_axis='x')`` in one process;
-* ``workers2``: the same with ``workers=2``.
+* ``workers2``: the same with ``workers=2``;
+* ``serial-warm`` (asked for by name; ``bench_kinds.py`` runs it): ``serial`` after one untimed run of
+  ``measure`` on a small series of the same kind (about 1000 cells, two steps) in the same process, before
+  the memory reference point: what a process loads once at its first run (modules imported as the run
+  needs them, numpy's and scipy's first buffers: about 20 MB, not the mesh's) is then not in its peak.
 
 With ``--repeat N`` every configuration runs N times, in rounds of all of them, and the
 fastest run of each is reported (all times are kept in the JSON): on a machine shared with
@@ -240,6 +244,8 @@ def _child(config: str, path: str, steps: int) -> None:
         import phasegauge.analysis.mixing  # noqa: F401
         import phasegauge.analysis.tracking  # noqa: F401  (scipy.optimize: about 6 MB of code)
         import skimage.measure  # noqa: F401  (marching cubes on regular grids)
+    if config == "serial-warm":
+        _small_run(path)
     me = psutil.Process()
     base = me.memory_info().rss
     samples = []
@@ -277,6 +283,21 @@ def _child(config: str, path: str, steps: int) -> None:
     out.update({"base_rss": base, "peak_first_half": first - base, "peak_second_half": second - base,
                 "peak_rss": max(first, second)})
     print("RESULT " + json.dumps(out))
+
+
+def _small_run(path: str) -> None:
+    """One untimed ``measure`` on a small series of the kind of the series at ``path`` (its folder's
+    info.json), written to a temporary folder; then the garbage collected."""
+    import gc
+
+    import phasegauge
+
+    with open(os.path.join(os.path.dirname(path), "info.json")) as handle:
+        kind = json.load(handle)["kind"]
+    with tempfile.TemporaryDirectory() as folder:
+        small = build(folder, kind, 0.001, 2)
+        phasegauge.measure(small["path"], "c", workers=1, section_axis="x", section_count=SECTIONS)
+    gc.collect()
 
 
 def _warm_file_cache(path: str) -> None:

@@ -59,7 +59,7 @@ def test_point_fit_in_chunks_matches_numpy_least_squares_and_one_pass(monkeypatc
     fitted = np.isfinite(reference)
     np.testing.assert_allclose(ours[fitted], reference[fitted], rtol=1e-9, atol=1e-12)
     # the fit keeps no copy of the cell numbers: it reads the transposed incidence's own
-    assert chunked.memo("point_fit", lambda: None).cols is chunked._incidence_t.indices
+    assert chunked.memo("point_fit", lambda: None).cols is chunked._point_cells.indices
     # its chunks on two threads: the same values bit for bit
     threaded = grid_mesh((6, 6, 6), kind="tetra", jitter=0.2, seed=2)
     assert np.array_equal(threaded.cell_to_point(values, threads=2), one_pass)
@@ -85,8 +85,7 @@ def test_fit_through_the_good_cells_matches_numpy_least_squares_and_is_kept_for_
     assert len(built) == 3  # the first pattern, the second, the first again (the last one is kept)
     # several components: a cell is good where all are finite, each component fitted alike
     flat = np.stack([values, 2 * values], axis=1)
-    fallback = np.zeros((mesh.n_points, 2))
-    both = linear_point_values(mesh, flat, np.isfinite(values), fallback)
+    both = linear_point_values(mesh, flat, np.isfinite(values), lambda points: np.zeros((points.size, 2)))
     np.testing.assert_allclose(both[fitted], np.stack([reference, 2 * reference], axis=1)[fitted], rtol=1e-9,
                                atol=1e-12)
     assert len(built) == 3
@@ -127,3 +126,26 @@ def test_the_fit_is_taken_alike_in_any_length_unit(dimension):
     assert all(np.array_equal(posed_sets[0], p) for p in posed_sets[1:])
     assert posed_sets[0].mean() > 0.5
     assert max(errors) < 1e-9 * dimension * 12
+
+
+@pytest.mark.parametrize("pairs", [7, 65536])
+def test_weighted_point_means_equal_scipys_product_over_all_points_and_a_subset(monkeypatch, pairs):
+    # reference: scipy's sparse product of the transposed incidence (measure-weighted corner sums),
+    # bit for bit, whether made over every point, a chunk of pairs at a time, or for scattered points
+    from phasegauge.model._conversions import weighted_point_means
+
+    monkeypatch.setattr(_conversions, "_FIT_PAIRS", pairs)
+    mesh = grid_mesh((6, 5, 4), kind="tetra", jitter=0.2, seed=5)
+    rng = np.random.default_rng(3)
+    flat = rng.standard_normal((mesh.n_cells, 2))
+    flat[rng.random(mesh.n_cells) < 0.2, 1] = np.nan
+    finite = np.isfinite(flat)
+    at = mesh.incidence.T.tocsr()
+    w = mesh.cell_measures[:, None] * finite
+    expected = (at @ (np.where(finite, flat, 0.0) * w)) / (at @ w)
+    assert np.array_equal(weighted_point_means(mesh, flat, finite), expected)
+    points = np.flatnonzero(rng.random(mesh.n_points) < 0.3)
+    assert np.array_equal(weighted_point_means(mesh, flat, finite, points), expected[points])
+    # the kept pattern holds no ones (8 bytes a pair): scipy's indices and indptr only
+    assert not hasattr(mesh._point_cells, "data")
+    assert np.array_equal(mesh._point_cells.indices, at.indices)

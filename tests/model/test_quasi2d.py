@@ -166,6 +166,26 @@ def test_a_slab_between_turned_planes_is_measured_as_3d_with_a_warning(kind):
         assert tilted_slab(thick) is None and as_measured(thick) is None
 
 
+def test_a_turned_slab_far_from_the_origin_and_with_unused_points_is_found():
+    """The planes' normal is taken from second moments about one of the used points: a slab far from
+    the origin (coordinates 1e4 against a depth 0.05) loses no digits, and points no cell uses, far
+    off the planes, do not count. Analytic: the turned z axis and the extrusion's depth."""
+    from phasegauge.model.mesh import Mesh
+    from phasegauge.model.quasi2d import tilted_slab
+
+    slab, turn = _turned(grid_mesh((40, 30, 1), [(0, 1), (0, 0.7), (0, 0.05)]), 30)
+    far = slab.points + 1e4
+    loose = np.vstack([far, [[3e4, -2e4, 5e4], [1e4, 1e4, 1e4 + 0.5]]])  # two points no cell uses
+    for points in (far, loose):
+        normal, depth = tilted_slab(Mesh(points, [(b.cell_type, b.connectivity) for b in slab.blocks]))
+        np.testing.assert_allclose(normal, turn @ [0, 0, 1], atol=1e-9)
+        assert depth == pytest.approx(0.05, rel=1e-6)
+    # a turned slab whose upper plane holds one point lifted by a tenth of the depth: not a slab
+    lifted = far.copy()
+    lifted[-1] += 0.005 * (turn @ [0, 0, 1])
+    assert tilted_slab(Mesh(lifted, [(b.cell_type, b.connectivity) for b in slab.blocks])) is None
+
+
 def test_measure_says_a_turned_slab_is_measured_as_3d(tmp_path):
     import warnings
 

@@ -16,8 +16,8 @@ import numpy as np
 if TYPE_CHECKING:
     from .mesh import Mesh
 
-__all__ = ["corner_sums", "point_stencil", "point_fit", "good_cells_fit", "PointFit", "linear_point_values",
-           "with_centre_means"]
+__all__ = ["corner_sums", "point_stencil", "point_fit", "good_cells_fit", "PointFit", "PointCells",
+           "linear_point_values", "weighted_point_means", "with_centre_means"]
 
 #: cells per chunk of :func:`corner_sums` (the chunk's sums stay in cache: 1 << 15 took 1.5x the
 #: time on 1M hexahedra)
@@ -59,7 +59,7 @@ def point_stencil(mesh: Mesh, span: tuple | None = None, scale: float | None = N
     grouped by point: ``(rows, cols, dx, w, indptr)``. With ``span`` ``(p0, p1)``, the pairs of those points
     only (``rows`` still the points' own numbers, ``indptr`` from 0); ``scale``: the squared median cell
     size that floors the distances (formed here if not given)."""
-    at = mesh._incidence_t
+    at = mesh._point_cells
     p0, p1 = (0, mesh.n_points) if span is None else span
     a, b = int(at.indptr[p0]), int(at.indptr[p1])
     indptr = at.indptr if span is None else (at.indptr[p0:p1 + 1] - a).astype(np.int64)
@@ -71,6 +71,50 @@ def point_stencil(mesh: Mesh, span: tuple | None = None, scale: float | None = N
         scale = np.median(mesh.cell_sizes) ** 2 if mesh.n_cells else 1.0
     w = 1.0 / np.maximum(dist2, 1e-12 * scale)
     return rows, cols, dx, w, indptr
+
+
+class PointCells(NamedTuple):
+    """The cells around each point, grouped by point: the transposed incidence's pattern (``indptr``,
+    ``indices`` as scipy's CSR holds them), kept without its ones (8 bytes a (point, cell) pair)."""
+
+    indptr: np.ndarray
+    indices: np.ndarray
+
+
+def weighted_point_means(mesh: Mesh, flat: np.ndarray, finite: np.ndarray, points: np.ndarray | None = None):
+    """The measure-weighted mean of the finite values ``flat`` (n_cells, k) of the cells around each of
+    ``points`` (increasing; all points by default), NaN at a point with no finite cell: (len(points), k).
+
+    A chunk of about :data:`_FIT_PAIRS` pairs at a time, each a CSR matrix of the chunk's rows of the
+    transposed incidence (ones made for the chunk only): every point's sums are scipy's products over its
+    own row, as one product over the whole matrix gives them, bit for bit."""
+    from scipy import sparse
+
+    pc = mesh._point_cells
+    w = mesh.cell_measures[:, None] * finite
+    weighted = np.where(finite, flat, 0.0) * w
+    points = np.arange(mesh.n_points) if points is None else np.asarray(points)
+    counts = np.diff(pc.indptr)[points]
+    heads = np.zeros(points.size + 1, dtype=np.int64)
+    np.cumsum(counts, out=heads[1:])
+    total = np.zeros((points.size, flat.shape[1]))
+    weight = np.zeros_like(total)
+    bounds = _chunk_bounds(heads) if points.size else np.zeros(1, dtype=np.int64)
+    for j0, j1 in zip(bounds[:-1].tolist(), bounds[1:].tolist()):
+        first, last = int(points[j0]), int(points[j1 - 1])
+        if last - first == j1 - j0 - 1:  # a run of consecutive points: their pairs are one slice
+            a = int(pc.indptr[first])
+            cols = pc.indices[a:int(pc.indptr[last + 1])]
+            indptr = pc.indptr[first:last + 2] - pc.indptr.dtype.type(a)
+        else:
+            indptr = heads[j0:j1 + 1] - heads[j0]
+            starts = np.repeat(pc.indptr[points[j0:j1]].astype(np.int64) - indptr[:-1], counts[j0:j1])
+            cols = pc.indices[starts + np.arange(indptr[-1])]
+        rows = sparse.csr_matrix((np.ones(cols.size), cols, indptr), shape=(j1 - j0, mesh.n_cells))
+        total[j0:j1] = rows @ weighted
+        weight[j0:j1] = rows @ w
+    with np.errstate(invalid="ignore", divide="ignore"):
+        return np.where(weight > 0, total / np.where(weight > 0, weight, 1.0), np.nan)
 
 
 def _chunk_bounds(heads: np.ndarray) -> np.ndarray:
@@ -157,7 +201,7 @@ def _chunked_fit(mesh: Mesh, threads: int = 1) -> PointFit:
     """:func:`point_fit`'s work: :func:`_fit_of` over the stencil of each chunk of points."""
     from ._threads import ordered_map
 
-    at = mesh._incidence_t
+    at = mesh._point_cells
     indptr, d = at.indptr, mesh.dimension
     scale = np.median(mesh.cell_sizes) ** 2 if mesh.n_cells else 1.0
     mesh.cell_centroids, mesh.coordinates  # noqa: B018  (made before the threads read them)
@@ -204,23 +248,28 @@ def good_cells_fit(mesh: Mesh, good: np.ndarray) -> PointFit:
     return fit
 
 
-def linear_point_values(mesh: Mesh, flat: np.ndarray, good: np.ndarray, fallback: np.ndarray, *,
+def linear_point_values(mesh: Mesh, flat: np.ndarray, good: np.ndarray, fallback, *,
                         limited: bool = True, threads: int = 1) -> np.ndarray:
     """Point values of the least-squares linear fit through the good cells around each point, kept in
-    their range (unless not ``limited``); ``fallback`` where the fit is ill-posed. A new mesh's fit of
-    every cell is made on up to ``threads`` threads (:func:`point_fit`)."""
+    their range (unless not ``limited``); ``fallback(points)`` (the rows of those points, increasing) where
+    the fit is ill-posed: asked for those points only. A new mesh's fit of every cell is made on up to
+    ``threads`` threads (:func:`point_fit`)."""
     fit = point_fit(mesh, threads=threads) if good.all() else good_cells_fit(mesh, good)
-    return _fitted_values(fit, flat, fallback, limited)
+    return _fitted_values(fit, flat, fallback, mesh.n_points, limited)
 
 
-def _fitted_values(fit: PointFit, flat: np.ndarray, fallback: np.ndarray, limited: bool = True) -> np.ndarray:
+def _fitted_values(fit: PointFit, flat: np.ndarray, fallback, n_points: int, limited: bool = True) -> np.ndarray:
     """:func:`linear_point_values` by a :class:`PointFit` (every cell's, or the good cells').
 
     A chunk of points at a time (about :data:`_FIT_PAIRS` pairs each): the gathered cell values and
     their products (16 bytes a pair and column) exist for one chunk only; every sum runs over one
     point's pairs, so the values are those of one pass bit for bit."""
-    out = fallback.copy()
-    if not fit.posed.any():
+    posed = np.zeros(n_points, dtype=bool)
+    posed[fit.points[fit.posed]] = True
+    rest = np.flatnonzero(~posed)
+    out = np.empty((n_points, flat.shape[1]))
+    out[rest] = fallback(rest)
+    if rest.size == n_points:
         return out
     heads = np.append(fit.starts, fit.cols.size)  # each point's first pair, and the end
     bounds = _chunk_bounds(heads)

@@ -32,7 +32,7 @@ def level_set_points(mesh: Mesh, phi_cell: np.ndarray) -> np.ndarray:
     phi = np.asarray(phi_cell, dtype=np.float64)
     good = np.isfinite(phi)
     mean = mesh.cell_to_point(phi, method="mean")
-    out = linear_point_values(mesh, phi[:, None], good, mean[:, None], limited=False)[:, 0]
+    out = linear_point_values(mesh, phi[:, None], good, lambda points: mean[points, None], limited=False)[:, 0]
     fit = point_fit(mesh) if good.all() else good_cells_fit(mesh, good)
     posed = np.zeros(mesh.n_points, dtype=bool)
     posed[fit.points[fit.posed]] = True

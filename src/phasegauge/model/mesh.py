@@ -19,13 +19,13 @@ from __future__ import annotations
 
 import hashlib
 from dataclasses import dataclass
-from functools import cached_property
+from functools import cached_property, partial
 
 import numpy as np
 
 from ..errors import UnsupportedMeshError
 from ._centroids import cell_centroids_of, mesh_geometry, piece_measures, whole_cell_sizes, zero_measures
-from ._conversions import corner_sums, linear_point_values, with_centre_means
+from ._conversions import PointCells, corner_sums, linear_point_values, weighted_point_means, with_centre_means
 from ._faces import cell_adjacency, face_pairs, face_topology, grid_face_numbers, grouped_faces, unique_edges
 from ._grouping import unique_ints
 from ._regular_grid import RegularGrid, find_regular_grid
@@ -567,17 +567,13 @@ class Mesh:
             raise ValueError(f"method must be 'linear' or 'mean', not {method!r}")
         flat = v.reshape(self.n_cells, -1)
         finite = np.isfinite(flat)
-        w = self.cell_measures[:, None] * finite
-        at = self._incidence_t
-        total = at @ (np.where(finite, flat, 0.0) * w)
-        weight = at @ w
-        with np.errstate(invalid="ignore", divide="ignore"):
-            out = np.where(weight > 0, total / np.where(weight > 0, weight, 1.0), np.nan)
-        if method == "linear":
-            out = linear_point_values(self, flat, np.all(finite, axis=1), out, threads=threads)
+        means = partial(weighted_point_means, self, flat, finite)
+        out = means() if method == "mean" else linear_point_values(self, flat, np.all(finite, axis=1), means,
+                                                                   threads=threads)
         out = with_centre_means(self, out)  # centres a reader added: their corners' mean, either method
         return out.reshape((self.n_points,) + v.shape[1:])
 
     @cached_property
-    def _incidence_t(self):  # made without keeping :attr:`incidence` (a cell field's runs need this one only)
-        return incidence_matrix(self).T.tocsr()
+    def _point_cells(self) -> PointCells:  # made without keeping :attr:`incidence` (nor the transpose's ones)
+        at = incidence_matrix(self).T.tocsr()
+        return PointCells(at.indptr, at.indices)
