@@ -175,7 +175,7 @@ def inspect(path, as_json, scan, sort_by_time):
               help="Cells that share a face (or an edge in 2D), or any point, belong to one droplet.")
 @click.option("--periodic", default="", help="Periodic axes for droplets, e.g. x,y.")
 @click.option("--ignore-remerge-within", "ignore_remerge_within", type=int, default=0, show_default=True,
-              help="A breakup that merges again within this many steps is no event.")
+              help="A breakup that merges again within this many steps (step numbers) is no event.")
 @click.option("--densities", default=None, help="Densities of the measured and the other phase, RHO1,RHO2.")
 @click.option("--diffusivity", type=float, default=None,
               help="Physical diffusivity or mobility to compare the numerical one with.")

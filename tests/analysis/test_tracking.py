@@ -165,6 +165,29 @@ def test_split_that_remerges_can_be_ignored():
     assert events["kind"].tolist() == ["breakup", "coalescence"]
 
 
+def test_remerge_span_counts_step_numbers_not_steps_analysed():
+    """The same split and merge seen on every other step (steps 0, 2, 4, ...: a run on ``--steps ::2``) or
+    with step 3 left out (a file that could not be read): the breakup at step 2 and the merge at step 6
+    are 4 step numbers apart whatever was analysed between, so ``ignore_remerge_within=3`` keeps both
+    events as on every step, and 4 drops them (the step numbers of the whole series, as the tables give)."""
+    mesh = grid_mesh((N, N))
+    X = mesh.cell_centroids
+    shapes = []
+    for gap in [0, 0, 1, 1, 1, 1, 0, 0, 0]:
+        core = np.abs(X[:, 1] - 0.5) < 4 * H
+        left = core & (X[:, 0] > 0.5 - 6 * H) & (X[:, 0] < 0.5)
+        right = core & (X[:, 0] - gap * H > 0.5) & (X[:, 0] - gap * H < 0.5 + 6 * H)
+        shapes.append(left | right)
+    every = series(mesh, shapes)
+    for steps in (every, every[::2], every[:3] + every[4:]):
+        _, events = track_droplets(steps)
+        assert events["kind"].tolist() == ["breakup", "coalescence"] and events["step"].tolist() == [2, 6]
+        _, events = track_droplets(steps, ignore_remerge_within=3)
+        assert events["kind"].tolist() == ["breakup", "coalescence"]
+        droplets, events = track_droplets(steps, ignore_remerge_within=4)
+        assert len(events) == 0 and droplets["track"].unique().tolist() == [0]
+
+
 def test_fast_droplet_linked_by_gate_or_velocity():
     """A small droplet jumping 8 cells per output step never overlaps itself: without velocity the gate
     (nearest predicted centroid within gate x diameter) links it; with the velocity the overlap does;

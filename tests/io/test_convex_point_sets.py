@@ -146,3 +146,45 @@ def test_inspect_says_how_cells_were_read_and_prints_json_without_meshio_warning
     text = subprocess.run([sys.executable, "-m", "phasegauge", "inspect", str(folder)],
                           capture_output=True, text=True, env=env, check=True)
     assert "read as     convex point set cells (VTK 41) read 12 as quads" in text.stdout
+
+
+def test_face_centres_written_in_the_file_are_no_duplicate_points(tmp_path):
+    # boxes written as convex point sets of their 8 corners and their two x-face centres, a face centre
+    # one point of the file shared by the two cells: the file has no two points alike (numpy's unique),
+    # so no "duplicate points merged" warning, though the reader's own centres of the split's faces fall on
+    # those points; the same file with one corner written twice still says 1 (the duplicate it has)
+    import warnings
+
+    from phasegauge.errors import MeshWarning
+
+    n = 3
+    xs = np.linspace(0.0, 1.0, n + 1)
+    X, Y, Z = np.meshgrid(xs, xs, xs, indexing="ij")
+    corners = np.c_[X.ravel(), Y.ravel(), Z.ravel()]
+    index = lambda i, j, k: (i * (n + 1) + j) * (n + 1) + k  # noqa: E731
+    centres, cells = {}, []
+    for i in range(n):
+        for j in range(n):
+            for k in range(n):
+                box = [index(i + a, j + b, k + c) for a in (0, 1) for b in (0, 1) for c in (0, 1)]
+                faces = []
+                for a in (i, i + 1):
+                    key = (a, j, k)
+                    if key not in centres:
+                        centres[key] = len(corners) + len(centres)
+                    faces.append(centres[key])
+                cells.append(box + faces)
+    extra = np.array([[xs[a], 0.5 * (xs[j] + xs[j + 1]), 0.5 * (xs[k] + xs[k + 1])] for a, j, k in centres])
+    points = np.vstack([corners, extra])
+    assert np.unique(points, axis=0).shape[0] == points.shape[0]
+    path = str(tmp_path / "boxes.vtu")
+    _write(path, points, cells)
+    with warnings.catch_warnings():
+        warnings.simplefilter("error", MeshWarning)
+        mesh = Series(path).read(0).mesh
+    np.testing.assert_allclose(mesh.cell_measures.sum(), 1.0, rtol=1e-12)  # the unit box (elementary)
+    twice = np.vstack([points, points[:1]])
+    cells[0] = [len(points) if p == 0 else p for p in cells[0]]
+    _write(str(tmp_path / "twice.vtu"), twice, cells)
+    with pytest.warns(MeshWarning, match=r"^.*: 1 duplicate points merged"):
+        Series(str(tmp_path / "twice.vtu")).read(0)

@@ -122,3 +122,28 @@ def test_a_killed_two_worker_run_leaves_no_process(tmp_path, signal_name):
         assert proc.returncode == 130
         assert "interrupted; rerun with --resume to finish" in err.decode()
         assert "Traceback" not in err.decode()
+
+
+def test_a_mesh_warning_reads_alike_on_one_or_two_workers(tmp_path):
+    # one quad listed clockwise in a 10 x 10 grid, the same mesh in all 5 steps: its orientation by the
+    # sign of the shoelace area (numpy) is the opposite of the rest; the run says so once, counting every
+    # step that holds it (5), whether one process measured them or two forks shared them
+    mesh = grid_mesh((10, 10), kind="quad")
+    conn = mesh.blocks[0].connectivity.copy()
+    conn[17] = conn[17][::-1]
+    xy = mesh.points[conn][:, :, :2]
+    shoelace = 0.5 * np.sum(xy[:, :, 0] * np.roll(xy[:, :, 1], -1, axis=1) - np.roll(xy[:, :, 0], -1, axis=1)
+                            * xy[:, :, 1], axis=1)
+    assert np.count_nonzero(shoelace < 0) == 1
+    from phasegauge.model.mesh import Mesh
+
+    turned = Mesh(mesh.points, [("quad", conn)])
+    x = turned.cell_centroids[:, 0]
+    steps = ((0.1 * k, f"s_{k}.vtu", turned, {"alpha": np.where(x < 0.2 + 0.1 * k, 1.0, 0.0)}) for k in range(5))
+    path = write_listing(str(tmp_path), steps)
+    lines = []
+    for workers in (1, 2):
+        result = measure(path, "alpha", analyses=("conservation",), workers=workers)
+        lines.append([w for w in result.warnings if "inverted" in w])
+    assert lines[0] == lines[1] and len(lines[0]) == 1
+    assert "1 cell is inverted" in lines[0][0] and lines[0][0].endswith("(and 4 more steps)")

@@ -80,7 +80,8 @@ class DropletTracker:
         centroid within ``gate`` times the previous droplet's equivalent diameter.
     ignore_remerge_within : int
         A breakup whose fragments all merge back into one droplet within this
-        many steps is not reported: its fragments keep the parent's track id
+        many steps (step numbers: ``add``'s ``step``, not the count of steps
+        added) is not reported: its fragments keep the parent's track id
         (the track then has several rows in the steps between). 0 reports all.
     periodic : sequence of {'x', 'y', 'z'}
         Periodic axes: moved points and centroid distances wrap around them.
@@ -464,7 +465,8 @@ def _whole_labels(step: dict, outline: MeshOutline) -> np.ndarray:
 
 
 def _drop_remerges(droplets: pd.DataFrame, events: pd.DataFrame, within: int):
-    """Remove breakups whose fragments all merge back within ``within`` added steps."""
+    """Remove breakups whose fragments all merge back within ``within`` steps: step numbers (the series'
+    own, so a run on every other step, or one with a step left out, keeps the same span), not steps added."""
     droplets = droplets.copy()
     events = events.copy()
     drop = np.zeros(len(events), dtype=bool)
@@ -473,8 +475,8 @@ def _drop_remerges(droplets: pd.DataFrame, events: pd.DataFrame, within: int):
             continue
         parent, = _track_tokens(events.at[i, "before"])
         fragments = set(_track_tokens(events.at[i, "after"]))
-        start = events.at[i, "_order"]
-        later = events.index[(events["_order"] > start) & (events["_order"] <= start + within) & ~drop]
+        start, step = events.at[i, "_order"], events.at[i, "step"]
+        later = events.index[(events["_order"] > start) & (events["step"] <= step + within) & ~drop]
         for j in later:
             involved = set(_track_tokens(events.at[j, "before"])) | set(_track_tokens(events.at[j, "after"]))
             if not involved & fragments:

@@ -503,10 +503,10 @@ def _warn_single_precision_points(mesh: Mesh, raw, where: str) -> None:
     spacing = float(np.spacing(np.float32(far)))
     size = float(np.median(mesh.cell_sizes))
     if size > 0 and spacing > SINGLE_POINTS_SHARE * size:
-        warnings.warn(MeshWarning(f"the points are stored in single precision: near |x| = {far:.4g} they are placed "
-                                  f"only to {spacing:.2g}, {spacing / size:.1%} of the median cell size ({size:.2g}), so "
-                                  "cell sizes, volumes and widths err by about that share; write the points in double "
-                                  "precision (or nearer the origin)", where=where), stacklevel=4)
+        warnings.warn(MeshWarning(f"the points are stored in single precision: near |x| = {far:.4g} they are "
+                                  f"placed only to {spacing:.2g}, {spacing / size:.1%} of the median cell size "
+                                  f"({size:.2g}), so cell sizes, volumes and widths err by about that share; write "
+                                  "the points in double precision (or nearer the origin)", where=where), stacklevel=4)
 
 
 def _checked_mesh(mesh: Mesh, raw, where: str) -> Mesh:
@@ -529,13 +529,19 @@ def _checked_mesh(mesh: Mesh, raw, where: str) -> Mesh:
     points = np.zeros((n_unique, 3))
     points[inverse] = mesh.points
     merged = Mesh(points, blocks, point_merge=inverse, pieces=getattr(raw, "cell_pieces", None))
-    duplicates = mesh.n_points - n_unique
+    # the file's own points only: centres a reader added to split cells fall on each other (a face's centre
+    # added by both its cells) or on a file point by design, no duplicate of the file
+    own = np.ones(mesh.n_points, dtype=bool)
+    centres = getattr(raw, "split_centres", None)
+    if centres is not None:
+        own[centres.points] = False
+    classes = inverse[own].astype(np.int64)
     sizes = getattr(raw, "block_sizes", None)
     if sizes is not None:  # a multiblock's blocks share their seams' points: merged across blocks, the join
-        block = np.repeat(np.arange(len(sizes)), sizes)
-        duplicates = mesh.n_points - np.unique(inverse.astype(np.int64) * len(sizes) + block).size
-        if duplicates == 0:
-            return merged
+        classes = classes * len(sizes) + np.repeat(np.arange(len(sizes)), sizes)[own]
+    duplicates = int(np.count_nonzero(own)) - np.unique(classes).size
+    if duplicates == 0:
+        return merged
     warnings.warn(MeshWarning(f"{duplicates} duplicate points merged (cells share their corners "
                               "now); point fields are averaged over the copies", where=where), stacklevel=3)
     return merged

@@ -82,11 +82,12 @@ class StepResult:
 
 
 # ------------------------------------------------------------------ the analyses of one step
-def check_mesh(mesh, where: str, *, reported: set | None = None) -> None:
+def check_mesh(mesh, where: str) -> None:
     """Refuse a mesh without volume; warn about inverted and zero-size cells.
 
-    With ``reported`` (signatures of meshes already warned about, updated here),
-    each mesh is warned about once.
+    Every step of a mesh is warned about (its figures are cached on the mesh): the run's warnings
+    are collapsed to one line a kind with the count of steps, the same however the steps were
+    shared among processes or taken from a resumed run's cache.
     """
     total = mesh.total_measure
     word = "area" if mesh.dimension == 2 else "volume"
@@ -106,10 +107,6 @@ def check_mesh(mesh, where: str, *, reported: set | None = None) -> None:
         raise UnsupportedMeshError(problem, where=where,
                                    fix="write each cell once (pieces of a parallel run joined without repeating "
                                        "their shared cells), or the step's volume mesh alone")
-    if reported is not None:
-        if mesh.signature in reported:
-            return
-        reported.add(mesh.signature)
     inverted, degenerate = mesh.inverted_cells, mesh.degenerate_cells
     if inverted:
         warnings.warn(MeshWarning(f"{_cells(inverted)} inverted (corners in the opposite order to the rest); "
@@ -182,8 +179,7 @@ def flatten_step(step, options):
 THREADED_CELLS = 500_000
 
 
-def analyse_step(step, options, *, contour_dir: str | None = None, reported_meshes: set | None = None,
-                 threads: int = 1) -> StepResult:
+def analyse_step(step, options, *, contour_dir: str | None = None, threads: int = 1) -> StepResult:
     """Run the chosen analyses on one step read into the model (pure apart from contour files).
 
     Parameters
@@ -192,8 +188,6 @@ def analyse_step(step, options, *, contour_dir: str | None = None, reported_mesh
     options : MeasureOptions
     contour_dir : str, optional
         Folder to write the step's interface into (``interface_NNNNNN.vtu``).
-    reported_meshes : set of str, optional
-        Signatures of meshes whose quality was already warned about (updated).
     threads : int
         Threads for the work that splits into independent parts (a new mesh's geometry and faces,
         the planes of a section operator, the widths' distance searches) on a mesh of at least
@@ -219,7 +213,7 @@ def analyse_step(step, options, *, contour_dir: str | None = None, reported_mesh
     if ind.nonfinite == ind.cell.size or not np.isfinite(ind.cell).any():
         raise InputError(f"field '{options.field}' has no finite values (all NaN or Inf)", where=step.info.where,
                          fix="the solver may have diverged at this step")
-    check_mesh(mesh, step.info.where, reported=reported_meshes)
+    check_mesh(mesh, step.info.where)
     u_cell, u_point, u_location = step_velocity(step, options)
     result = StepResult(step.index, step.time, step.info.path, mesh_signature=mesh.signature,
                         dimension=int(mesh.dimension), time_origin=step.info.time_origin,
@@ -464,13 +458,11 @@ class StepRunner:
         self.keep = frozenset(int(i) for i in keep)
         self.mesh_pool = series.mesh_pool if series is not None else (mesh_pool or MeshPool())
         self._series = series
-        self._reported: set = set()  # meshes whose quality this runner has warned about
         self.threads = int(threads)
 
     def __getstate__(self):
         state = self.__dict__.copy()
         state["_series"] = None
-        state["_reported"] = set()
         state["threads"] = 1
         return state
 
@@ -529,8 +521,7 @@ class StepRunner:
             warnings.simplefilter("always")
             try:
                 step = series.read(index)
-                result = analyse_step(step, self.options, contour_dir=self.contour_dir,
-                                      reported_meshes=self._reported, threads=self.threads)
+                result = analyse_step(step, self.options, contour_dir=self.contour_dir, threads=self.threads)
             except STEP_ERRORS as err:
                 err = err.at(info.where)
                 if self.options.strict:
