@@ -52,7 +52,8 @@ def test_run_strict_overrides_the_recipe(tmp_path):
     strict = CliRunner().invoke(main, ["run", str(recipe), "-q", "--strict", "--overwrite"])
     assert strict.exit_code == 2 and "s_1.vtu" in strict.output
     # a recipe that is strict, made lenient for one run from the command line
-    recipe.write_text(recipe.read_text().replace('analyses = ["conservation"]', 'analyses = ["conservation"]\nstrict = true'))
+    recipe.write_text(recipe.read_text().replace('analyses = ["conservation"]',
+                                                 'analyses = ["conservation"]\nstrict = true'))
     assert CliRunner().invoke(main, ["run", str(recipe), "-q", "--overwrite"]).exit_code == 2
     assert CliRunner().invoke(main, ["run", str(recipe), "-q", "--no-strict", "--overwrite"]).exit_code == 0
 

@@ -48,7 +48,8 @@ _measure_options = (
                  help="Measure the phase where the field is high (upper) or low (lower)."),
     click.option("--level", type=float, default=0.5, show_default=True,
                  help="Indicator level of the interface and of droplets."),
-    click.option("--velocity", default=None, help="Velocity field (droplet velocities, tracking, flow-weighted sections)."),
+    click.option("--velocity", default=None,
+                 help="Velocity field (droplet velocities, tracking, flow-weighted sections)."),
     click.option("--field-location", type=click.Choice(["cell", "point"]), default=None,
                  help="Which copy of a field written on cells and on points under one name to read "
                       "(default: the cell copy, the solver's own values)."),
@@ -58,7 +59,8 @@ _measure_options = (
 #: options of a partially miscible mixture (measure)
 _mixture_options = (
     click.option("--model", "model_file", default=None,
-                 help="Mixture model file (TOML, see 'phasegauge equilibrium'): bulk compositions against its binodal."),
+                 help="Mixture model file (TOML, see 'phasegauge equilibrium'): bulk compositions against its "
+                      "binodal."),
     click.option("--temperature", type=float, default=None, help="Temperature of the run in K (with --model)."),
     click.option("--temperature-field", default=None, help="Field holding the temperature (instead of --temperature)."),
     click.option("--solute", default=None, help="Field of a solute's mole fraction distributed between the phases."),

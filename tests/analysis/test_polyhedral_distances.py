@@ -43,7 +43,8 @@ def _sphere_on_polyhedra(tmp_path, n, cells_across):
 @pytest.mark.parametrize("cells_across, n", [(4, 32), (8, 48)])
 def test_sphere_on_polyhedra_distances_and_widths(tmp_path, cells_across, n):
     # jittered hexahedra written as VTK polyhedra: the reader splits each into 12 tetrahedra about
-    # its cell centre (quad faces cut along their shorter diagonal). The distances are searched against one plane per crossed
+    # its cell centre (quad faces cut along their shorter diagonal). The distances are searched against one
+    # plane per crossed
     # polyhedron (its pieces merged, `_whole_cell_pieces`), within O(h^2 / R) of the contour's own
     # triangles. Measured errors, root mean square and largest, in cells h, at every point the
     # widths searched (corners and the added centres):

@@ -1,6 +1,7 @@
 """Work on several threads gives what one thread gives, bit for bit: the section operator, a new
 mesh's geometry and faces, the split plan, the widths' distance searches; and the threaded profile
-matches pyvista's plane slice; the sorts shared among threads match numpy's (the outside reference of tests/analysis/test_sections_operator.py)."""
+matches pyvista's plane slice; the sorts shared among threads match numpy's (the outside reference of
+tests/analysis/test_sections_operator.py)."""
 
 import dataclasses
 

@@ -29,7 +29,8 @@ def _block(xs, ny=60):
 
 def _two_ranks(path, exact):
     x0 = np.arange(31) * H
-    x1 = 3e-5 + np.arange(31) * H if not exact else np.r_[x0[-1], 3e-5 + np.arange(1, 31) * H]  # rank 1 from its own origin
+    # rank 1 from its own origin
+    x1 = 3e-5 + np.arange(31) * H if not exact else np.r_[x0[-1], 3e-5 + np.arange(1, 31) * H]
     assert (x0[-1] == x1[0]) == exact  # 2.9999999999999997e-05 against 3e-05 when not exact
     pyvista.MultiBlock([_block(x0), _block(x1)]).save(path)
     return str(path)

@@ -184,7 +184,8 @@ def test_cells_of_three_kinds_written_with_their_own_copies_of_their_corners(tmp
     # its corners in its own order: read as the same cells written with shared corners (found by review:
     # the faces met by point number, so the hexahedra beside the polyhedra's centred quads stayed whole,
     # 756 boundary faces instead of 384 on 4^3 cells). Boundary faces of the unit cube's split, 4 x 6 n^2
-    # triangles, every quad coned from its centre (elementary counting); the point field x + 2 y - z, linear, exact at every point and
+    # triangles, every quad coned from its centre (elementary counting); the point field x + 2 y - z, linear,
+    # exact at every point and
     # face centre (a mean of corners of a linear field; elementary); the cell's number on each cell's
     # copies: at a face centre the mean of its cells' numbers (each copy of the face its own centre, the
     # mean of its own corners, merged with the other; found by review: the first copy's alone)

@@ -286,7 +286,8 @@ def test_an_include_of_another_grid_than_the_first_refused(tmp_path):
         '<?xml version="1.0" ?>\n<Xdmf Version="3.0" xmlns:xi="http://www.w3.org/2001/XInclude"><Domain>'
         '<Grid Name="T" GridType="Collection" CollectionType="Temporal">'
         '<xi:include href="s_0.xmf" xpointer="xpointer(//Xdmf/Domain/Grid[2])"/></Grid></Domain></Xdmf>\n')
-    with pytest.raises(SeriesError, match=r"includes s_0.xmf at .*Grid\[2\].*, but a step file is read by its first grid"):
+    with pytest.raises(SeriesError,
+                       match=r"includes s_0.xmf at .*Grid\[2\].*, but a step file is read by its first grid"):
         Series(str(tmp_path / "run.xmf"))
 
 

@@ -46,7 +46,8 @@ def _hexagonal_prism(a=1.0, h=2.0):
     angles = np.arange(6) * np.pi / 3
     ring = np.c_[a * np.cos(angles), a * np.sin(angles)]
     points = np.r_[np.c_[ring, np.zeros(6)], np.c_[ring, np.full(6, h)]]
-    faces = [tuple(range(5, -1, -1)), tuple(range(6, 12))] + [(i, (i + 1) % 6, 6 + (i + 1) % 6, 6 + i) for i in range(6)]
+    faces = ([tuple(range(5, -1, -1)), tuple(range(6, 12))]
+             + [(i, (i + 1) % 6, 6 + (i + 1) % 6, 6 + i) for i in range(6)])
     return points, faces, 3 * np.sqrt(3) / 2 * a * a * h  # hexagonal prism
 
 
@@ -113,7 +114,8 @@ def test_shared_faces_get_one_centre_whatever_the_corner_order():
     volume, tetra = _volumes(m.points, split)
     assert volume.sum() == pytest.approx(1.0, rel=1e-13)
     # conforming: every interior triangle is shared by exactly two tetrahedra
-    faces = np.sort(tetra.blocks[0].connectivity[:, [[0, 1, 2], [0, 1, 3], [1, 2, 3], [0, 2, 3]]].reshape(-1, 3), axis=1)
+    corners = tetra.blocks[0].connectivity[:, [[0, 1, 2], [0, 1, 3], [1, 2, 3], [0, 2, 3]]]
+    faces = np.sort(corners.reshape(-1, 3), axis=1)
     _, counts = np.unique(faces, axis=0, return_counts=True)
     assert counts.max() == 2
     assert len(tetra.boundary_faces[1]) == np.count_nonzero(counts == 1)

@@ -44,7 +44,8 @@ def test_a_drift_finding_words_its_figures():
     options = MeasureOptions(field="c", drift_tolerance=1e-3)
     (drift,) = findings(steps, pd.DataFrame(), {}, options, [])
     assert drift == Finding("phase_volume_drift", "warning",
-                            "phase volume drifts by up to -2 % (lost; tolerance 0.1 % of the first step's phase volume)",
+                            "phase volume drifts by up to -2 % (lost; tolerance 0.1 % of the first step's "
+                            "phase volume)",
                             {"largest_drift": 0.02, "signed_drift": -0.02, "tolerance": 1e-3})
 
 
@@ -82,7 +83,8 @@ def test_the_widening_finding_carries_the_audit_verdict_and_ratio():
 
     audit = {"interface_kind": "diffuse", "widening": True, "D_num": 1.37e-3, "D_num_stderr": 1.6e-4,
              "D_ratio": 13.7, "width_growth": 1.75,
-             "verdict": "interface keeps widening: numerical diffusivity 0.00137 +- 0.00016 (width +175 % first to last)"}
+             "verdict": "interface keeps widening: numerical diffusivity 0.00137 +- 0.00016 "
+                        "(width +175 % first to last)"}
     (flag,) = findings(pd.DataFrame({"time": [0.0]}), pd.DataFrame(), audit, MeasureOptions(field="c"), [])
     assert flag.kind == "interface_widening"
     assert flag.text == audit["verdict"] + "; 13.7 x the physical value"

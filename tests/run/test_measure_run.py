@@ -310,7 +310,8 @@ def test_wrong_field_stops_a_parallel_run_after_the_first_step(tmp_path):
 
 
 def test_threads_give_the_same_tables_and_are_recorded(tmp_path, monkeypatch):
-    """A run on 3 threads (its small mesh let onto them): profiles.csv and steps.csv equal to one thread's; in 3D too."""
+    """A run on 3 threads (its small mesh let onto them): profiles.csv and steps.csv equal to one thread's; in 3D
+    too."""
     from phasegauge.run import step
 
     monkeypatch.setattr(step, "THREADED_CELLS", 0)

@@ -473,7 +473,8 @@ def test_times_that_do_not_increase(tmp_path):
         _good(tmp_path / f"s_{k}.vtu")
     listing = _write_listing(tmp_path, [(0.0, "s_0.vtu"), (0.2, "s_1.vtu"), (0.1, "s_2.vtu")])
     _assert_one_error_line(["measure", listing, "-f", "alpha", "-o", tmp_path / "o"],
-                           "s_2.vtu, step 2", "times do not increase", "0.1 after 0.2", "correct the times in run.steps")
+                           "s_2.vtu, step 2", "times do not increase", "0.1 after 0.2",
+                           "correct the times in run.steps")
     code, err, _ = _cli(["inspect", listing])
     assert code == 0 and len(err) == 1 and "times do not increase" in err[0]
 

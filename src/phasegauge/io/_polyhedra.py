@@ -342,8 +342,9 @@ class PolyhedralRead:
         if pieces:
             warnings.warn(MeshWarning(f"{' and '.join(pieces)} of the polyhedra's split have negative volume "
                                       "(cells not star-shaped from their corner mean: their volumes and centroids "
-                                      "are the pieces' signed sums, exact, as are cell-field integrals; contours, widths "
-                                      "and point-field integrals in them are not: the overlap counts twice)", where=self.path),
+                                      "are the pieces' signed sums, exact, as are cell-field integrals; contours, "
+                                      "widths and point-field integrals in them are not: the overlap counts twice)",
+                                      where=self.path),
                           stacklevel=stacklevel)
 
     def _with_centres(self, split) -> tuple:

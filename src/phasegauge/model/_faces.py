@@ -18,8 +18,8 @@ from .cells import EDGES, FACES
 if TYPE_CHECKING:
     from .mesh import CellBlock, Mesh
 
-__all__ = ["local_faces", "face_rows", "row_owners", "face_topology", "face_pairs", "split_face_topology", "SPLIT_FACES",
-           "grid_face_numbers", "grouped_faces", "unique_edges", "cell_adjacency"]
+__all__ = ["local_faces", "face_rows", "row_owners", "face_topology", "face_pairs", "split_face_topology",
+           "SPLIT_FACES", "grid_face_numbers", "grouped_faces", "unique_edges", "cell_adjacency"]
 
 
 def local_faces(block: CellBlock) -> list:

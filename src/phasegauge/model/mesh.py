@@ -428,7 +428,8 @@ class Mesh:
 
     @cached_property
     def _grid_face_numbers(self) -> list | None:
-        """Face numbers of a regular grid of hexahedra from grid positions, or None (:func:`._faces.grid_face_numbers`)."""
+        """Face numbers of a regular grid of hexahedra from grid positions, or None
+        (:func:`._faces.grid_face_numbers`)."""
         return grid_face_numbers(self)
 
     @property

@@ -99,5 +99,6 @@ def write_filament_breakup(directory: str, params=FILAMENT) -> str:
     mesh = box_triangles(((0.0, lx), (0.0, ly)), params["mesh_spacing"], seed=params["seed"])
     times, fields = filament_breakup_fields(params)
     xy = mesh.points[:, :2]
-    steps = ((t, {"phi": sample_periodic(f, params["box"], xy).astype(np.float32)}, None) for t, f in zip(times, fields))
+    steps = ((t, {"phi": sample_periodic(f, params["box"], xy).astype(np.float32)}, None)
+             for t, f in zip(times, fields))
     return write_xdmf_series(os.path.join(directory, "filament_breakup.xdmf"), mesh, steps)
