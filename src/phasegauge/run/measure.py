@@ -471,17 +471,13 @@ def _check_read_times(results, options) -> None:
 
 
 def input_stamps(series) -> dict:
-    """Size and modification time of every file the series reads (step files and HDF5 data files)."""
-    from ..io import multiblock_data_files, xdmf_data_files
-    from ..io._multiblock import is_index_file
+    """Size and modification time of every file the series reads (step files and their data files)."""
+    from ..io import step_data_files
 
     paths = list(series.files)
     for path in series.files:
         try:
-            if path.lower().endswith((".xdmf", ".xmf")):
-                paths.extend(xdmf_data_files(path))
-            elif is_index_file(path):
-                paths.extend(multiblock_data_files(path))
+            paths.extend(step_data_files(path))
         except Exception:  # a file that cannot be parsed is reported by its step
             pass
     stamps = {}
