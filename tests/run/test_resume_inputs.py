@@ -7,6 +7,7 @@ is resumed only by one that writes them (and the reverse), so that ``contours/``
 """
 
 import json
+import re
 import os
 
 import h5py
@@ -15,7 +16,7 @@ import pandas as pd
 import pytest
 
 from phasegauge import measure
-from phasegauge.errors import SeriesError
+from phasegauge.errors import OutputError, SeriesError
 from phasegauge.run.step import StepRunner
 
 N = 60          # quads a side on the unit square
@@ -145,3 +146,53 @@ def test_a_resume_takes_the_finished_steps_when_only_later_data_was_rewritten(tm
     resumed = measure(path, "c", out=out, resume=True, **options)
     assert [r.reused for r in resumed.results] == [True] * 3 + [False] * 3
     pd.testing.assert_frame_equal(resumed.steps, measure(path, "c", out=fresh, **options).steps)
+
+
+@pytest.mark.parametrize("first, then", [(False, True), (True, False)])
+def test_a_resume_that_would_change_whether_contours_are_written_is_refused(tmp_path, monkeypatch, first, then):
+    # regression: --contours / --no-contours were outside the run key; a resume with the other setting left
+    # contours/ without the finished steps (or with the files of a run that writes none)
+    path = _write_series(str(tmp_path / "in"), 0.01, "folder")
+    out = tmp_path / "out"
+    _interrupted(path, out, monkeypatch, contours=first)
+    said = "without contour files (--no-contours)" if then else "with contour files, so a resume without them"
+    with pytest.raises(OutputError, match=rf"was measured {re.escape(said)}") as refused:
+        measure(path, "c", out=out, resume=True, contours=then)
+    assert refused.value.fix.startswith("resume with --no-contours" if then else "resume with --contours")
+    assert "--overwrite" in refused.value.fix
+    resumed = measure(path, "c", out=out, resume=True, contours=first)  # the same setting finishes it
+    assert sum(r.reused for r in resumed.results) == 3
+    written = sorted(os.listdir(out / "contours")) if (out / "contours").exists() else []
+    # what an uninterrupted run writes: a file a step (times from the XDMF grids) and their listing
+    assert written == (sorted([f"interface_{k:06d}.vtu" for k in range(STEPS)] + ["interface.steps"]) if first
+                       else [])
+    measure(path, "c", out=out, overwrite=True, contours=then)
+    written = sorted(os.listdir(out / "contours")) if (out / "contours").exists() else []
+    assert len(written) == (STEPS + 1 if then else 0)
+
+
+def test_a_campaign_resumed_with_other_contours_is_refused(tmp_path, monkeypatch):
+    """A campaign whose first run finished without contour files, resumed with them: the finished run's
+    folder would keep none while the others get theirs."""
+    from phasegauge.run.campaign import run_campaign
+    from phasegauge.run.options import MeasureOptions
+
+    runs = [{"path": _write_series(str(tmp_path / f"in_{k}"), 0.01 * k, "folder"), "parameter": float(k),
+             "label": f"q{k}"} for k in (1, 2)]
+    options = MeasureOptions(field="c", analyses=("conservation", "interface"))
+    real = StepRunner.run
+
+    def run(runner, index):
+        if runner.path == runs[1]["path"]:
+            raise KeyboardInterrupt
+        return real(runner, index)
+
+    monkeypatch.setattr(StepRunner, "run", run)
+    with pytest.raises(KeyboardInterrupt):
+        run_campaign(runs, options, out=tmp_path / "camp", contours=False)
+    monkeypatch.setattr(StepRunner, "run", real)
+    assert (tmp_path / "camp" / "run_q1" / "steps.csv").exists()  # the first run finished
+    with pytest.raises(OutputError, match="was measured without contour files"):
+        run_campaign(runs, options, out=tmp_path / "camp", contours=True, resume=True)
+    resumed = run_campaign(runs, options, out=tmp_path / "camp", contours=False, resume=True)
+    assert resumed.runs[0] is None and not (tmp_path / "camp" / "run_q2" / "contours").exists()

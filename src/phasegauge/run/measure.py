@@ -283,10 +283,12 @@ def _measure(series, indices, options, out, txn, *, workers, threads, scheduler,
         from ..report._files import prepare_output_folder
 
         run_key = hashlib.sha256(f"{os.path.abspath(series.path)}|{options.key()}".encode()).hexdigest()[:16]
-        prepare_output_folder(out, overwrite=overwrite, resume=resume, run_key=run_key, code=code_digest())
+        writes_contours = bool(contours and "interface" in options.analyses)
+        prepare_output_folder(out, overwrite=overwrite, resume=resume, run_key=run_key, code=code_digest(),
+                              contours=writes_contours)
         cache = StepCache(os.path.join(os.fspath(out), ".cache"), options.key())
         txn.worth_keeping = cache.holds_finished_steps
-        if contours and "interface" in options.analyses:
+        if writes_contours:
             contour_dir = os.path.join(os.fspath(out), "contours")
             os.makedirs(contour_dir, exist_ok=True)
     runner = StepRunner(series.path, options, cache=cache, contour_dir=contour_dir,
