@@ -108,6 +108,22 @@ def test_rewritten_hdf5_data_changes_the_key_of_xdmf_steps(tmp_path):
     assert StepCache(tmp_path / "cache", MeasureOptions(field="c").key()).entry(info) != entry
 
 
+@pytest.mark.parametrize("form", ["folder", "listing", "collection"])
+def test_rewritten_hdf5_data_changes_the_key_of_one_step_xdmf_files(tmp_path, form):
+    # regression: a one-step XDMF file (info.grid None) was keyed by its text alone
+    from test_resume_inputs import _write_series
+
+    path = _write_series(str(tmp_path / "in"), 0.0, form)
+    info = Series(path).steps[2]
+    assert info.grid is None
+    cache = StepCache(tmp_path / "cache", MeasureOptions(field="c").key())
+    entry = cache.entry(info)
+    os.utime(tmp_path / "in" / "out_0002.h5", ns=(1, 1))
+    assert StepCache(tmp_path / "cache", MeasureOptions(field="c").key()).entry(info) != entry
+    assert cache.entry(Series(path).steps[1]) == StepCache(tmp_path / "cache", cache.options_key).entry(
+        Series(path).steps[1])  # another step's data unchanged: its key stays
+
+
 def test_a_cache_pickles_to_its_folder_and_key(tmp_path):
     cache = StepCache(tmp_path / "c", "abc")
     copy = pickle.loads(pickle.dumps(cache))

@@ -9,7 +9,7 @@ there, and meshio is used only through :mod:`._meshio_adapter`. A
 
 from ._contour_writer import read_contour, write_contour
 from ._formats import FileFormat, format_for, formats, mesh_suffixes, read_mesh_file, register_format
-from ._inputs import file_sha256, input_files
+from ._inputs import file_sha256, input_files, step_data_files
 from ._mesh_pool import MeshPool
 from ._model_file import mixture_model_from_table, read_mixture_model
 from ._point_files import read_line_file, read_measured_file, read_probe_file
@@ -29,6 +29,6 @@ read_meshio = read_mesh_file
 __all__ = ["MESH_SUFFIXES", "LISTING_SUFFIXES", "Series", "Step", "StepInfo", "StepFields", "MeshPool",
            "natural_key", "open_series", "read_listing", "read_mesh_file", "read_meshio", "read_contour",
            "write_contour", "FileFormat", "register_format", "formats", "format_for", "xdmf_data_files",
-           "multiblock_data_files", "input_files", "file_sha256", "read_reference_table", "read_mixture_model",
-           "mixture_model_from_table", "read_probe_file", "read_line_file",
+           "multiblock_data_files", "step_data_files", "input_files", "file_sha256", "read_reference_table",
+           "read_mixture_model", "mixture_model_from_table", "read_probe_file", "read_line_file",
            "read_measured_file"]

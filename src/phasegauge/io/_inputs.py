@@ -5,7 +5,7 @@ from __future__ import annotations
 import hashlib
 import os
 
-__all__ = ["file_sha256", "input_files"]
+__all__ = ["file_sha256", "input_files", "step_data_files"]
 
 
 def file_sha256(path, chunk: int = 1 << 22) -> str:
@@ -20,9 +20,40 @@ def file_sha256(path, chunk: int = 1 << 22) -> str:
     return digest.hexdigest()
 
 
+def step_data_files(path) -> list:
+    """The files a step file's numbers live in besides itself, as paths: the HDF5 files an XDMF file
+    names (a one-step file, a collection, or a step file a collection includes), the volume blocks or
+    pieces a multiblock or parallel index file (``.vtm``, ``.pvtu``, ...) names; [] for other files.
+
+    The resume cache stamps them and the manifest lists them: a solver that rewrites a step's data
+    may leave the step file itself unchanged.
+
+    Parameters
+    ----------
+    path : str or os.PathLike
+        A step file.
+
+    Returns
+    -------
+    list of str
+        Files that do not exist are listed too ([] when the step file cannot be read).
+    """
+    from ._formats import format_for
+    from ._multiblock import is_index_file, multiblock_data_files
+
+    path = os.fspath(path)
+    if is_index_file(path):
+        return multiblock_data_files(path)
+    fmt = format_for(path)
+    if fmt is None or fmt.hdf5_files is None:
+        return []
+    return list(fmt.hdf5_files(path))
+
+
 def input_files(series, known_sha256: dict | None = None) -> list:
-    """Every input file of a series: the step files, the HDF5 files an XDMF collection names, the volume
-    blocks each multiblock (``.vtm``) step names, a listing.
+    """Every input file of a series: a listing (or a collection's file that includes the step files),
+    the step files, each followed by the files its numbers live in (:func:`step_data_files`: an XDMF
+    file's HDF5 files, a multiblock file's volume blocks).
 
     Parameters
     ----------
@@ -35,23 +66,15 @@ def input_files(series, known_sha256: dict | None = None) -> list:
     -------
     list of dict
         ``{"path": absolute path, "bytes": size, "sha256": hex digest}`` for each file that
-        exists (``"sha256"`` is None for a file that cannot be read), in order: the listing, the step files (each multiblock file followed by its
-        volume blocks), the data files.
+        exists (``"sha256"`` is None for a file that cannot be read), each listed once, in order:
+        the listing or including file, then each step file followed by its data files.
     """
-    from ._multiblock import is_index_file, multiblock_data_files
-    from ._xdmf import xdmf_data_files
-
     known = known_sha256 or {}
-    files = []
+    # a listing, or a collection's file that includes the step files: read for the steps, not a step
+    files = [series.path] if os.path.isfile(series.path) and series.path not in series.files else []
     for f in series.files:
         files.append(f)
-        if is_index_file(f):
-            files += multiblock_data_files(f)
-    if series.kind == "collection":  # its file, or the step files it includes: their HDF5 data
-        for f in series.files:
-            files += xdmf_data_files(f)
-    if series.kind == "listing":
-        files = [series.path] + files
+        files += step_data_files(f)
     out, seen = [], set()
     for f in files:
         full = os.path.abspath(f)

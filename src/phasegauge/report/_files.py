@@ -231,7 +231,7 @@ def _lay_out_once(figure, dpi: int) -> None:
 
 
 def prepare_output_folder(out, *, overwrite: bool = False, resume: bool = False, run_key: str = "",
-                          code: str = "") -> str:
+                          code: str = "", contours: bool | None = None) -> str:
     """Check and create the output folder.
 
     Parameters
@@ -246,6 +246,10 @@ def prepare_output_folder(out, *, overwrite: bool = False, resume: bool = False,
     code : str
         Identity of the code that measures (a digest of its source); a resumed folder must have
         been measured by the same code, so that no run mixes the numbers of two versions.
+    contours : bool, optional
+        Whether the run writes the interface of every step into ``contours/``; a resumed folder must
+        have been measured alike, or ``contours/`` would miss its finished steps or keep files of a
+        run that writes none.
 
     Returns
     -------
@@ -256,7 +260,8 @@ def prepare_output_folder(out, *, overwrite: bool = False, resume: bool = False,
     OutputError
         The folder exists and neither flag is given; it holds files phasegauge
         did not write (it is never emptied then); resuming a run of other
-        inputs or options, or one another version measured; the folder cannot be created.
+        inputs or options, or with contour files where this run writes none (or the reverse), or one
+        another version measured; the folder cannot be created.
     """
     out = os.fspath(out)
     marker = os.path.join(out, RUN_MARKER)
@@ -286,6 +291,7 @@ def prepare_output_folder(out, *, overwrite: bool = False, resume: bool = False,
                 raise OutputError("was measured by another version of phasegauge, whose numbers may differ, so "
                                   "it cannot be resumed", where=out,
                                   fix="use --overwrite to measure it again with this version")
+            _check_resumed_contours(out, previous.get("contours", contours), contours)
             remove_temporaries(out)
             # files the earlier run did not write (a killed run's: by phasegauge's names) are not counted as
             # this run's when it ends
@@ -322,8 +328,21 @@ def prepare_output_folder(out, *, overwrite: bool = False, resume: bool = False,
                           fix="choose an output folder you can write to") from None
     if txn is not None:
         txn.mode = mode
-    atomic_write_json(marker, {"run_key": run_key, "code": code, "state": "running"})
+    atomic_write_json(marker, {"run_key": run_key, "code": code, "contours": contours, "state": "running"})
     return mode
+
+
+def _check_resumed_contours(out: str, before, now) -> None:
+    """Refuse to resume a run that wrote contour files with a run that writes none, or the reverse."""
+    if now is None or before is None or bool(before) == bool(now):
+        return
+    if now:
+        raise OutputError("was measured without contour files (--no-contours), so a resume that writes them "
+                          "would leave contours/ without its finished steps", where=out,
+                          fix="resume with --no-contours, or use --overwrite to measure it again with contour files")
+    raise OutputError("was measured with contour files, so a resume without them (--no-contours) would leave "
+                      "contours/ with its finished steps' files only", where=out,
+                      fix="resume with --contours (the default), or use --overwrite to measure it again without them")
 
 
 def mark_complete(out) -> None:
@@ -340,8 +359,8 @@ def mark_complete(out) -> None:
         noted = {}
     kept = set(noted.get("kept", ()))
     written = sorted(path for path in _files_in(out) if path not in kept)
-    atomic_write_json(marker, {"run_key": noted.get("run_key", ""), "code": noted.get("code", ""), "state": "complete",
-                               "written": written})
+    atomic_write_json(marker, {"run_key": noted.get("run_key", ""), "code": noted.get("code", ""),
+                               "contours": noted.get("contours"), "state": "complete", "written": written})
 
 
 def _files_in(out: str) -> list:

@@ -3,8 +3,9 @@
 A finished step's :class:`~phasegauge.run.step.StepResult` is kept as
 ``OUT/.cache/step_NNNNNN_KEY.pkl``. ``KEY`` digests everything the result
 depends on: the SHA-256 of the step file's content, the step's grid in an XDMF
-collection, the size and modification time of the HDF5 files an XDMF file
-names (hashing them whole would cost as much as reading them), and the options
+collection, the size and modification time of the files the step's numbers live
+in (:func:`phasegauge.io.step_data_files`: the HDF5 files of any XDMF step file,
+a multiblock's blocks; hashing them whole would cost as much as reading them), and the options
 digest (:meth:`MeasureOptions.key`). A resumed run takes a step from the cache
 only when all of these are unchanged.
 
@@ -73,7 +74,7 @@ class StepCache:
         self.folder = os.fspath(folder)
         self.options_key = str(options_key)
         os.makedirs(self.folder, exist_ok=True)
-        self._data_files: dict = {}  # XDMF path -> the HDF5 files it names (parsed once)
+        self._data_files: dict = {}  # step file -> the data files it names (parsed once)
 
     def __repr__(self) -> str:
         return f"StepCache({self.folder!r}, options {self.options_key})"
@@ -145,19 +146,14 @@ class StepCache:
             return False
 
     def _data_stamp(self, info) -> str:
-        """Size and modification time of the files a step reads besides its own: the HDF5 files of an
-        XDMF step, the volume blocks of a multiblock (``.vtm``) step ('' for other steps)."""
-        from ..io._multiblock import is_index_file
-
-        multiblock = is_index_file(info.path)
-        if info.grid is None and not multiblock:
-            return ""
-        from ..io import multiblock_data_files, xdmf_data_files
+        """Size and modification time of the files a step reads besides its own
+        (:func:`phasegauge.io.step_data_files`: the HDF5 files of any XDMF step file, the volume blocks
+        of a multiblock step; '' for other steps)."""
+        from ..io import step_data_files
 
         files = self._data_files.get(info.path)
         if files is None:
-            files = self._data_files[info.path] = (multiblock_data_files(info.path) if multiblock
-                                                   else xdmf_data_files(info.path))
+            files = self._data_files[info.path] = step_data_files(info.path)
         stamps = []
         for full in files:
             try:

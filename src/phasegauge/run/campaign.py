@@ -226,7 +226,8 @@ def run_campaign(runs: list, options, *, out, parameter: str = "parameter", unit
     _check_series([(r, label) for r, label, f in zip(runs, labels, folders)  # those still to measure
                    if not (resume and os.path.isdir(f) and _finished(f) is not None)], options)
     with output_transaction(out) as txn:
-        prepare_output_folder(out, overwrite=overwrite, resume=resume, run_key=key, code=code_digest())
+        prepare_output_folder(out, overwrite=overwrite, resume=resume, run_key=key, code=code_digest(),
+                              contours=bool(contours and "interface" in options.analyses))
         if txn is not None:  # a failed run leaves the finished ones for --resume
             txn.worth_keeping = lambda: any(_finished(f) is not None for f in folders)
         done = [_finished(f) if resume else None for f in folders]

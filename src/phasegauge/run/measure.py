@@ -283,10 +283,12 @@ def _measure(series, indices, options, out, txn, *, workers, threads, scheduler,
         from ..report._files import prepare_output_folder
 
         run_key = hashlib.sha256(f"{os.path.abspath(series.path)}|{options.key()}".encode()).hexdigest()[:16]
-        prepare_output_folder(out, overwrite=overwrite, resume=resume, run_key=run_key, code=code_digest())
+        writes_contours = bool(contours and "interface" in options.analyses)
+        prepare_output_folder(out, overwrite=overwrite, resume=resume, run_key=run_key, code=code_digest(),
+                              contours=writes_contours)
         cache = StepCache(os.path.join(os.fspath(out), ".cache"), options.key())
         txn.worth_keeping = cache.holds_finished_steps
-        if contours and "interface" in options.analyses:
+        if writes_contours:
             contour_dir = os.path.join(os.fspath(out), "contours")
             os.makedirs(contour_dir, exist_ok=True)
     runner = StepRunner(series.path, options, cache=cache, contour_dir=contour_dir,
@@ -471,17 +473,13 @@ def _check_read_times(results, options) -> None:
 
 
 def input_stamps(series) -> dict:
-    """Size and modification time of every file the series reads (step files and HDF5 data files)."""
-    from ..io import multiblock_data_files, xdmf_data_files
-    from ..io._multiblock import is_index_file
+    """Size and modification time of every file the series reads (step files and their data files)."""
+    from ..io import step_data_files
 
     paths = list(series.files)
     for path in series.files:
         try:
-            if path.lower().endswith((".xdmf", ".xmf")):
-                paths.extend(xdmf_data_files(path))
-            elif is_index_file(path):
-                paths.extend(multiblock_data_files(path))
+            paths.extend(step_data_files(path))
         except Exception:  # a file that cannot be parsed is reported by its step
             pass
     stamps = {}

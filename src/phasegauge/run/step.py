@@ -505,9 +505,12 @@ class StepRunner:
         keep_contour = index in self.keep
         entry = None if self.cache is None else self.cache.entry(info)  # None: no file to key it by
         if entry is not None and not self.cache.holds(entry) and self.cache.changed_since(info, entry):
+            from ..io import step_data_files
+
+            what = "the step's file or a data file it names" if step_data_files(info.path) else "the step's file"
             grew = " (an XDMF collection is keyed whole: one a solver still writes changes with every step)" \
-                if info.path.lower().endswith((".xdmf", ".xmf")) else ""
-            raise SeriesError(f"the step's file changed since the run that is being resumed read it{grew}",
+                if info.grid is not None else ""
+            raise SeriesError(f"{what} changed since the run that is being resumed read it{grew}",
                               where=f"{info.path}, step {info.index}",
                               fix="start the run again with --overwrite (or restore the file)")
         if entry is not None:
