@@ -6,8 +6,8 @@ whole life (137 MiB at 6M tetrahedra), though every reader after the first step 
 centroids only. Such a mesh keeps its signed measures and its whole cells' centroids
 (:func:`mesh_geometry`, one pass); its readers take the centroids of the cells they need
 (:func:`cell_centroids_of`) or of the whole cells (:func:`whole_cell_centroids`). The numbers are those
-:func:`cell_geometry` gives for the whole block: it computes each cell from its own corners, so a cell's centroid does not depend on
-the other cells computed with it. A mesh of unsplit cells keeps its centroids as before.
+:func:`cell_geometry` gives for the whole block: it computes each cell from its own corners, so a cell's
+centroid does not depend on the other cells computed with it. A mesh of unsplit cells keeps its centroids as before.
 """
 
 from __future__ import annotations
