@@ -9,6 +9,8 @@ numpy arrays written [lib]; a BaseOffset file is compared with meshio's reading 
 cells numbered from 0 [lib].
 """
 
+import os
+
 import numpy as np
 import pytest
 
@@ -343,3 +345,30 @@ def test_a_collection_warns_of_a_missing_output_and_not_of_rounded_text_times(tm
     path.write_text(xml)
     series, said = _gap_warnings(path)
     assert said == [] and series.steps[1].time_resolution == pytest.approx(1e-4)
+
+
+@pytest.mark.parametrize("name", ["out 0000.h5", "OUT_0000.H5", "run-1 a.hdf5", "fields.data", "sub/out_0000.h5"])
+def test_the_data_files_an_xdmf_file_names_are_read_from_its_hdf_items(tmp_path, name):
+    # the HDF5 file behind each Format="HDF" DataItem, as the file writes it (a name with a space, as meshio
+    # names the data of "out 0000.xdmf", an upper-case suffix, another suffix): the resume key and the
+    # manifest's inputs take them from here. Reference: the names written, and Python's XML parser
+    # reading the same items back
+    import xml.etree.ElementTree as ET
+
+    from phasegauge.io import step_data_files
+    from phasegauge.io._xdmf import data_file_names
+
+    text = ('<?xml version="1.0"?>\n<Xdmf Version="3.0"><Domain><Grid Name="mesh" GridType="Uniform">'
+            '<Geometry GeometryType="XY"><DataItem Dimensions="4 2" Format="HDF">\n'
+            f'  {name}:/geometry\n</DataItem></Geometry>'
+            '<Topology TopologyType="Quadrilateral" NumberOfElements="1"><DataItem Dimensions="1 4" '
+            f'Format="hdf">{name}:/topology</DataItem></Topology>'
+            '<Attribute Name="c" Center="Node"><DataItem Dimensions="4" Format="XML">0 1 2 3</DataItem>'
+            '</Attribute></Grid></Domain></Xdmf>\n')
+    path = tmp_path / "out 0000.xdmf"
+    path.write_text(text)
+    items = [item.text.strip() for item in ET.parse(path).getroot().iter("DataItem")
+             if item.get("Format").upper() == "HDF"]
+    assert {item.rpartition(":/")[0] for item in items} == {name}
+    assert data_file_names(str(path)) == [name]
+    assert step_data_files(path) == [os.path.join(str(tmp_path), name)]

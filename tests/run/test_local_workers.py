@@ -147,3 +147,27 @@ def test_a_mesh_warning_reads_alike_on_one_or_two_workers(tmp_path):
         lines.append([w for w in result.warnings if "inverted" in w])
     assert lines[0] == lines[1] and len(lines[0]) == 1
     assert "1 cell is inverted" in lines[0][0] and lines[0][0].endswith("(and 4 more steps)")
+
+
+def test_a_read_warning_counts_every_step_of_its_mesh_on_one_or_two_workers(tmp_path):
+    # a 10 x 10 quad grid whose file stores each quad's corners apart (400 points for 121 places, as numpy's
+    # unique counts them): the reader merges them and says so; with the same mesh in all 5 steps the
+    # line counts the 4 more steps however the steps were shared among processes
+    import meshio
+
+    mesh = grid_mesh((10, 10), kind="quad")
+    conn = mesh.blocks[0].connectivity
+    points = mesh.points[conn.ravel()]
+    apart = np.arange(points.shape[0]).reshape(conn.shape)
+    duplicates = points.shape[0] - np.unique(points, axis=0).shape[0]
+    assert duplicates == 400 - 121
+    x = points[apart].mean(axis=1)[:, 0]
+    lines = []
+    for k in range(5):
+        alpha = np.where(x < 0.2 + 0.1 * k, 1.0, 0.0)
+        meshio.write(str(tmp_path / f"s_{k}.vtu"), meshio.Mesh(points, [("quad", apart)], cell_data={"alpha": [alpha]}))
+    for workers in (1, 2):
+        result = measure(str(tmp_path), "alpha", analyses=("conservation",), workers=workers)
+        lines.append([w for w in result.warnings if "duplicate points merged" in w])
+    assert lines[0] == lines[1] and len(lines[0]) == 1
+    assert f"{duplicates} duplicate points merged" in lines[0][0] and lines[0][0].endswith("(and 4 more steps)")

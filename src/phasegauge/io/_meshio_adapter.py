@@ -23,7 +23,7 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
-from ..errors import (FieldShapeError, InputFileNotFound, MeshWarning, UnreadableFileError,
+from ..errors import (FieldShapeError, InputFileNotFound, MeshWarning, PhasegaugeWarning, UnreadableFileError,
                       UnsupportedMeshError, short_text)
 from ..model._places import coincident_points, corner_means, first_copies
 from ..model.mesh import Mesh
@@ -400,10 +400,18 @@ def mesh_and_fields(raw, where: str, pool=None) -> tuple[Mesh, StepFields]:
     candidate.file_cells = file_cells(raw, candidate)
     mesh = None if pool is None else pool.match(candidate)
     if mesh is None:
-        mesh = _checked_mesh(candidate, raw, where)
+        with warnings.catch_warnings(record=True) as caught:
+            warnings.simplefilter("always")
+            mesh = _checked_mesh(candidate, raw, where)
         mesh.file_cells = candidate.file_cells
         if mesh is not candidate and pool is not None:
             mesh = pool.match(mesh) or mesh
+        notes = [w.message for w in caught if isinstance(w.message, PhasegaugeWarning)]
+        mesh.memo(_MESH_NOTES, lambda: notes)
+        for w in caught:  # (other libraries' warnings once, as they came)
+            if not isinstance(w.message, PhasegaugeWarning):
+                warnings.warn_explicit(w.message, w.category, w.filename, w.lineno)
+    repeat_mesh_notes(mesh, where)
     note = getattr(raw, "convex_point_sets", None)
     if note:
         mesh.memo("convex_point_sets", lambda: note)
@@ -411,6 +419,19 @@ def mesh_and_fields(raw, where: str, pool=None) -> tuple[Mesh, StepFields]:
         raw.keep_split(mesh)
     _keep_centres(mesh, getattr(raw, "split_centres", None))
     return mesh, step_fields(mesh, raw, where)
+
+
+#: ``Mesh.memo`` key of the warnings the check of a new mesh gave (:func:`repeat_mesh_notes`)
+_MESH_NOTES = "mesh_read_warnings"
+
+
+def repeat_mesh_notes(mesh: Mesh, where: str) -> None:
+    """Give the warnings the check of ``mesh`` gave when it was read first (single-precision points,
+    duplicate points merged) again, for the step at ``where``: each step of the mesh says so, as
+    ``check_mesh`` does, so the run's count of steps is the same however many processes read the mesh
+    and whichever step a resumed run reads first."""
+    for note in mesh.memo(_MESH_NOTES, lambda: (), keep=False):
+        warnings.warn(type(note)(note.what, where=where), stacklevel=3)
 
 
 def _keep_centres(mesh: Mesh, centres) -> None:

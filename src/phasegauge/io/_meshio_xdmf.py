@@ -25,7 +25,8 @@ import numpy as np
 
 from ..errors import FieldShapeError, InputFileNotFound, UnreadableFileError, UnsupportedMeshError, short_text
 from ..model.mesh import Mesh
-from ._meshio_adapter import _WRITE_AGAIN, StepFields, ensure_vtk_extras, hdf5_problem, mesh_and_fields, step_fields
+from ._meshio_adapter import (_WRITE_AGAIN, StepFields, ensure_vtk_extras, hdf5_problem, mesh_and_fields,
+                              repeat_mesh_notes, step_fields)
 from ._xdmf_forms import base_offset, form_problem, version_problem
 
 __all__ = ["XdmfTimeSeries", "offset_cells", "read_timed_grid"]
@@ -183,6 +184,7 @@ class XdmfTimeSeries:
         key, raw = self.read(grid, where)
         if self._built is not None and self._built[0] == key:
             mesh = self._built[1]
+            repeat_mesh_notes(mesh, where)
             return mesh, step_fields(mesh, raw, where, field_data=False)
         mesh, fields = mesh_and_fields(raw, where, pool)
         self._built = (key, mesh)

@@ -23,7 +23,7 @@ __all__ = ["FORMATS", "temporal_grids", "collection_times", "collections_among",
            "xdmf_data_files", "data_file_names", "included_files", "peek_xdmf_time"]
 
 #: an HDF5 reference in a DataItem: ``file.h5:/path``
-_HDF5_REFERENCE = re.compile(r">\s*([^<>:\s]+\.(?:h5|hdf5|hdf))\s*:")
+_HDF5_REFERENCE = re.compile(r">\s*([^<>:\s]+\.(?:h5|hdf5|hdf))\s*:", re.IGNORECASE)
 
 
 def temporal_grids(path: str):
@@ -293,13 +293,35 @@ def _time_item_values(node, path: str, where: str) -> list:
 
 
 def data_file_names(path: str) -> list:
-    """The HDF5 file names an XDMF file's data items refer to, as written, sorted ([] when unreadable)."""
+    """The HDF5 file names an XDMF file's data items refer to, as written, sorted ([] when unreadable).
+
+    Read from the XML: the text of every ``DataItem`` whose ``Format`` is ``HDF`` (any case), up to the
+    ``:`` before its dataset's path (``out 0000.h5:/data0``: a name may hold spaces, and its suffix any case
+    or none). Text that does not parse as XML is searched for ``NAME.h5:`` references instead.
+    """
     try:
         with open(path, encoding="utf-8", errors="replace") as handle:
             text = handle.read()
     except OSError:
         return []
-    return sorted(set(_HDF5_REFERENCE.findall(text)))
+    try:
+        root = ET.fromstring(text)
+    except ET.ParseError:
+        return sorted(set(_HDF5_REFERENCE.findall(text)))
+    names = set()
+    for item in root.iter():
+        if _local_name(item.tag) != "DataItem" or (item.get("Format") or "").strip().upper() != "HDF":
+            continue
+        reference = (item.text or "").strip()
+        name = reference.split(":/", 1)[0] if ":/" in reference else reference.rpartition(":")[0]
+        if name.strip():
+            names.add(name.strip())
+    return sorted(names)
+
+
+def _local_name(tag) -> str:
+    """An XML tag without its namespace (``{uri}DataItem`` -> ``DataItem``)."""
+    return tag.rpartition("}")[2] if isinstance(tag, str) else ""
 
 
 def xdmf_data_files(path) -> list:
