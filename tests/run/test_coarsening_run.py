@@ -68,3 +68,26 @@ def test_steps_without_times_give_no_exponent(tmp_path):
     assert "store no times" in note.text and "time,path" in note.text
     assert "exponent" not in note.figures
     assert os.path.exists(out / "coarsening.png")  # the lengths against the step number, no fit
+
+
+def test_coarsening_note_names_the_length_it_fitted():
+    import pandas as pd
+
+    from phasegauge.run._coarsening_finding import coarsening_finding
+
+    # lengths built as exact power laws (L = t^(1/3) and t^(1/4)) with a step at t = 0 [calc]
+    t = np.array([0.0, 1.0, 8.0, 27.0, 64.0])
+    steps = pd.DataFrame({"step": range(5), "time": t, "coarsening_length": t ** 0.25,
+                          "interface_spacing": t ** (1 / 3)})
+    note = coarsening_finding(steps)
+    assert note.figures["exponent"] == pytest.approx(1 / 3, rel=1e-12)
+    assert note.figures["structure_factor_exponent"] == pytest.approx(0.25, rel=1e-12)
+    assert note.figures["points"] == 4 and "over 4 steps of 5" in note.text
+    assert "n = 0.333" in note.text and "n = 0.25" in note.text
+    # a table without the spacing: the structure-factor length, named
+    older = coarsening_finding(steps.drop(columns=["interface_spacing"]))
+    assert older.figures["length"] == "coarsening_length" and "structure factor" in older.text
+    assert older.figures["exponent"] == pytest.approx(0.25, rel=1e-12)
+    numbered = coarsening_finding(steps, numbered=True)
+    assert "store no times" in numbered.text and "exponent" not in numbered.figures
+    assert coarsening_finding(steps.iloc[:2]) is None

@@ -48,12 +48,12 @@ def coarsening_finding(steps, numbered: bool = False):
     if length == "interface_spacing":
         text += ", L = domain volume / interface size (interface_spacing)"
         if np.isfinite(structure["exponent"]):
-            text += (f"; the structure-factor length gives n = {structure['exponent']:.3g}, low where the "
-                     "pattern outgrows a fixed interface width")
+            text += (f"; the structure-factor length gives n = {structure['exponent']:.3g} (it reads low as the "
+                     "pattern outgrows a fixed interface width)")
     else:
-        text += (", L from the structure factor (coarsening_length): low where the pattern outgrows a fixed "
-                 "interface width")
-    text += " (diffusive coarsening: 1/3, Lifshitz & Slyozov 1961)"
+        text += (", L from the structure factor (coarsening_length; it reads low as the pattern outgrows a fixed "
+                 "interface width)")
+    text += "; diffusive coarsening gives n = 1/3 (Lifshitz & Slyozov 1961)"
     figures = dict(fit, length=length, structure_factor_exponent=structure["exponent"],
                    structure_factor_exponent_stderr=structure["exponent_stderr"])
     return Finding("coarsening", "note", text, figures)
