@@ -104,3 +104,34 @@ def every_polyhedron_split():
     with pytest.MonkeyPatch.context() as patch:
         patch.setattr(_polyhedra, "_ordinary_cells", lambda points, made, **_: None)
         yield
+
+
+def fixed_width_pattern(n: int, periods, width_cells: float):
+    """Cell values of a periodic n x n pattern at each of ``periods`` (periods per unit side), its
+    interface a tanh of a FIXED width in cells, as in a Cahn-Hilliard run (the width set by kappa
+    while the domains grow); returns ``(mesh, [c per period])``.
+
+    The domains are those of four cosines (``cos kx + cos ky + 0.7 cos k(x + y) + 0.3 sin k(x - y) > 0``,
+    so the pattern at every period is the same one scaled); c = (1 + tanh(d / width)) / 2 of the
+    periodic signed distance d to their boundary in cells (scipy's ``distance_transform_edt`` on the
+    pattern tiled 3 x 3).
+    """
+    import numpy as np
+    from scipy import ndimage
+
+    from phasegauge.meshgen import grid_mesh
+
+    mesh = grid_mesh((n, n))
+    x, y = mesh.cell_centroids[:, 0], mesh.cell_centroids[:, 1]
+    ix, iy = np.floor(x * n).astype(int), np.floor(y * n).astype(int)
+    axis = (np.arange(n) + 0.5) / n
+    X, Y = np.meshgrid(axis, axis, indexing="ij")
+    fields = []
+    for m in periods:
+        k = 2 * np.pi * m
+        inside = np.tile(np.cos(k * X) + np.cos(k * Y) + 0.7 * np.cos(k * (X + Y)) + 0.3 * np.sin(k * (X - Y)) > 0,
+                         (3, 3))
+        d = np.where(inside, ndimage.distance_transform_edt(inside), -ndimage.distance_transform_edt(~inside))
+        d = (d - 0.5 * np.sign(d))[n:2 * n, n:2 * n]  # cell centres half a cell off the boundary: at +-0.5
+        fields.append(0.5 * (1 + np.tanh(d / width_cells))[ix, iy])
+    return mesh, fields

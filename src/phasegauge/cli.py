@@ -229,7 +229,8 @@ def inspect(path, as_json, scan, sort_by_time):
               help="Model file of the double well with kappa, in the field's own variable: chemical potential "
                    "spread, free energy and interfacial tension per step (regular grids).")
 @click.option("--coarsening", is_flag=True,
-              help="Characteristic length of the pattern per step (structure factor) and the fitted L ~ t^n.")
+              help="Characteristic lengths of the pattern per step (interface spacing, structure factor) and "
+                   "L ~ t^n fitted to the interface spacing (the steps' times needed).")
 @_old_flags(("--ignore-remerge", "ignore_remerge_within", int), ("--sections", "section_axis", click.Choice("xyz")),
             ("--section-at", "section_positions", str))
 def measure(path, field, value_range, phase, level, velocity, field_location, sort_by_time, out, steps, time_from,

@@ -60,7 +60,7 @@ A measure recipe::
 
     [phase_field]              # optional: Cahn-Hilliard checks
     free_energy = "well.toml"  # double well with kappa, relative to the recipe (regular grids)
-    coarsening = true          # pattern length per step and the fitted L ~ t^n
+    coarsening = true          # pattern lengths per step and the fitted L ~ t^n
 
     [validation]               # optional; CSV files relative to the recipe
     probes = "probes.csv"      # name,x,y[,z]

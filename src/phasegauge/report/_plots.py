@@ -48,7 +48,8 @@ def measure_figure_makers(result, snapshots: dict | None = None, *, time_origin:
                         _maker("_plots_interface", "plot_interface_width", steps, **when)))
     if _has(steps, "coarsening_length") and len(steps) > 1:
         fit = next((f.figures for f in getattr(result, "findings", []) if f.kind == "coarsening"), None)
-        figures.append(("coarsening", "Characteristic length (structure factor) over time, log-log",
+        axes = "against the step number (no times stored)" if time_origin == "index" else "over time, log-log"
+        figures.append(("coarsening", f"Characteristic lengths (interface spacing, structure factor) {axes}",
                         _maker("_plots_interface", "plot_coarsening", steps, fit, **when)))
     if snapshots:
         figures.append(("interface_snapshots", "Interface (c = level) at chosen steps",

@@ -166,14 +166,18 @@ def plot_interface_snapshots(interfaces_by_step, *, bounds, axis_names=("x", "y"
 
 
 def plot_coarsening(steps_df, fit: dict | None = None, *, time_origin: str | None = None):
-    """Characteristic length over time on log-log axes, with the fitted power law.
+    """Characteristic lengths over time on log-log axes, with the fitted power law.
 
     Parameters
     ----------
     steps_df : pandas.DataFrame
-        ``time`` and ``coarsening_length`` per step.
+        ``time`` and ``coarsening_length`` per step, and ``interface_spacing`` where measured.
     fit : dict, optional
-        ``exponent``, ``exponent_stderr`` and ``prefactor`` of L = a t^n (drawn as a line).
+        ``exponent``, ``exponent_stderr``, ``prefactor`` of L = a t^n and ``length``, the column it was
+        fitted to (drawn as a line through that column's points; ``coarsening_length`` when not given).
+    time_origin : str, optional
+        ``index``: the steps store no times; the lengths are drawn against the step number on a
+        linear axis, with no fit.
 
     Returns
     -------
@@ -182,12 +186,20 @@ def plot_coarsening(steps_df, fit: dict | None = None, *, time_origin: str | Non
     if "coarsening_length" not in getattr(steps_df, "columns", ()):
         raise OptionError("the steps table has no 'coarsening_length' column", fix="measure with --coarsening")
     t = steps_df["time"].to_numpy(dtype=float)
-    L = steps_df["coarsening_length"].to_numpy(dtype=float)
-    use = np.isfinite(t) & np.isfinite(L) & (t > 0) & (L > 0)
     fig = new_figure()
     ax = fig.add_subplot(1, 1, 1)
-    ax.loglog(t[use], L[use], "o", label="L = 2 pi / k1")
-    if fit and np.isfinite(fit.get("exponent", np.nan)) and use.any():
+    lengths = (("interface_spacing", "interface spacing, V / A", "full"),
+               ("coarsening_length", "L = 2 pi / k1 (structure factor)", "none"))
+    numbered = time_origin == "index"  # step numbers are no times: no log axis of them, no fit
+    for column, label, fill in lengths:
+        if column in steps_df.columns:
+            L = steps_df[column].to_numpy(dtype=float)
+            use = np.isfinite(t) & np.isfinite(L) & (t >= 0 if numbered else t > 0) & (L > 0)
+            (ax.semilogy if numbered else ax.loglog)(t[use], L[use], "o", fillstyle=fill, label=label)
+    fitted = (fit or {}).get("length") or "coarsening_length"
+    L = steps_df[fitted].to_numpy(dtype=float) if fitted in steps_df.columns else np.zeros(0)
+    use = np.isfinite(t) & np.isfinite(L) & (t > 0) & (L > 0) if L.size else np.zeros(0, dtype=bool)
+    if fit and np.isfinite(fit.get("exponent", np.nan)) and use.any() and not numbered:
         tt = np.geomspace(t[use].min(), t[use].max(), 50)
         err = fit.get("exponent_stderr", np.nan)
         label = f"fit: n = {fit['exponent']:.3f}" + (f" ± {err:.3f}" if np.isfinite(err) else "")

@@ -23,6 +23,7 @@ import numpy as np
 from ..errors import (AnalysisError, InputError, PhasegaugeError, SeriesError, SeriesWarning,
                       SkippedStepWarning, collapse_warnings)
 from ._boundary_findings import boundary_reach_finding, resolution_finding
+from ._coarsening_finding import coarsening_finding
 from ._drift_findings import drift_findings
 from .options import STEP_COLUMNS
 
@@ -412,7 +413,8 @@ def findings(steps, droplets, audit: dict, options, skipped: list, *, dimension:
     mesh one cell thick measured per unit depth are 2): the Gibbs-Thomson shift of the bulk
     plateaus' note needs it (None: no expected shift). ``on_points``: a step's boundary flux took the
     velocity on points (an open domain's drift finding then says what that can do). ``numbered``: the
-    steps store no times, so an open domain's drift is not judged (its flow is a rate per unit time).
+    steps store no times, so an open domain's drift is not judged (its flow is a rate per unit time)
+    and no coarsening exponent is fitted.
 
     Tolerances: overshoot above ``ROUNDOFF_VOLUME`` (1e-9) x the domain volume; drift (in an open
     domain, what the boundary flow does not account for: :func:`._drift_findings.drift_findings`) above
@@ -466,17 +468,9 @@ def findings(steps, droplets, audit: dict, options, skipped: list, *, dimension:
                                  "(0.063 (h / eps)^2: too few cells across the interface); width_threshold_free "
                                  "integrates the cell values and carries about a fifth of it",
                                  {"bias": worst, "tolerance": WIDTH_TOLERANCE}))
-    if "coarsening_length" in steps and len(steps) > 2:
-        from ..analysis.mixing import coarsening_exponent
-
-        fit = coarsening_exponent(steps["time"], steps["coarsening_length"])
-        if np.isfinite(fit["exponent"]):
-            err = fit["exponent_stderr"]
-            found.append(Finding("coarsening", "note",
-                                 f"the pattern coarsens as L ~ t^n with n = {fit['exponent']:.3g}"
-                                 + (f" ± {err:.2g}" if np.isfinite(err) else "")
-                                 + f" over {fit['points']} steps (diffusive coarsening: 1/3, Lifshitz & Slyozov 1961)",
-                                 fit))
+    coarsening = coarsening_finding(steps, numbered)  # over steps that store no times: no exponent, a note
+    if coarsening is not None:
+        found.append(coarsening)
     if "free_energy" in steps and len(steps) > 1:
         energy = steps["free_energy"].to_numpy(dtype=float)
         rise = np.diff(energy)

@@ -107,7 +107,7 @@ MORE_STEP_COLUMNS = ("depth", "interface_eps", "width_threshold_free", "interfac
                      "boundary_phase_outflow", "open_boundary", "open_boundary_area",
                      "boundary_phase_outflow_unknown", "phase_volume_outflow", "phase_volume_drift_closed",
                      "phase_mass", "other_mass", "total_mass", "mixing_length", "coarsening_length",
-                     "segregation_scale")
+                     "interface_spacing", "segregation_scale")
 
 
 @accept_old_names
@@ -186,8 +186,9 @@ class MeasureOptions:
         volume the cut cells' exact share for the field linear on the split, and the
         widths give way to ``distance_error_*`` (see :mod:`phasegauge.model.level_set`).
     coarsening : bool
-        The characteristic length of the pattern per step (``coarsening_length``, first moment
-        of the structure factor) and the fitted exponent of L ~ t^n.
+        The characteristic lengths of the pattern per step (``coarsening_length``, first moment
+        of the structure factor; ``interface_spacing``, domain volume / interface size) and the
+        exponent of L ~ t^n fitted to the interface spacing (none when the steps store no times).
     probes : tuple of (name, x, y, z)
         Points where the field and c are kept at every step (``probes.csv``).
     lines : tuple of (name, x0, y0, z0, x1, y1, z1, points)

@@ -258,8 +258,10 @@ def analyse_step(step, options, *, contour_dir: str | None = None, threads: int 
             profile.insert(0, "time", step.time)
             profile.insert(0, "step", step.index)
             result.profile = profile
-    if options.coarsening:
+    if options.coarsening:  # the spacing takes the interface's size where the step measured it
         m["coarsening_length"] = mixing.coarsening_length(mesh, ind.cell)
+        size = m.get("interface_size", None if contour is None else float(np.sum(contour.element_sizes)))
+        m["interface_spacing"] = mixing.interface_spacing(mesh, ind.point, level=options.level, interface_size=size)
     if options.free_energy is not None:
         m.update(_equilibrium(step, mesh, ind, options, m.get("interface_size")))
     if options.model is not None:  # a partially miscible mixture: bulk compositions against the model
