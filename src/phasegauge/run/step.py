@@ -243,7 +243,7 @@ def analyse_step(step, options, *, contour_dir: str | None = None, threads: int 
     if "mixing" in options.analyses:
         m.update(mixing.mixing_metrics(mesh, ind.cell, box=options.box))
         if options.segregation_scale:
-            m["segregation_scale"] = mixing.segregation_scale(mesh, ind.cell)
+            m["segregation_scale"] = mixing.segregation_scale(mesh, ind.cell, periodic=tuple(options.periodic))
         if options.section_axis is not None:
             if sections is not None:  # its error where one thread meets it: here
                 profile, notes = sections.result()
