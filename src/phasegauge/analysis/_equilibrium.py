@@ -101,13 +101,24 @@ def _point_lattice(phi: np.ndarray, h: tuple, wrapped: tuple) -> tuple[np.ndarra
             if j != k:
                 across = across * w
         edges = np.diff(phi, axis=k)
-        grad_energy += float(np.sum(edges ** 2 * across)) / step
-        # along the axis k: the first, last, second and last but one planes
-        first, last, second, before_last = (_along(ndim, k, part) for part in
-                                            (slice(0, 1), slice(-1, None), slice(1, 2), slice(-2, -1)))
-        ahead = np.concatenate([edges, phi[second] - phi[last] if wraps else -edges[last]], axis=k)
-        behind = np.concatenate([phi[first] - phi[before_last] if wraps else -edges[first], edges], axis=k)
-        lap += (ahead - behind) / step ** 2
+        squares = np.square(edges)
+        squares *= across
+        grad_energy += float(squares.sum()) / step
+        del squares
+        # along the axis k: the first, last, second and last but one planes of points; the first
+        # and last edges; all edges but the first, all but the last
+        first, last, second, before_last, rest, head = (
+            _along(ndim, k, part) for part in (slice(0, 1), slice(-1, None), slice(1, 2), slice(-2, -1),
+                                               slice(1, None), slice(None, -1)))
+        edges /= step ** 2  # differences per spacing squared from here on
+        lap[_along(ndim, k, slice(1, -1))] += edges[rest] - edges[head]  # (ahead - behind) inside
+        if wraps:  # across the boundary plane: the point next to the far plane (the same plane)
+            lap[first] += edges[first] - (phi[first] - phi[before_last]) / step ** 2
+            lap[last] += (phi[second] - phi[last]) / step ** 2 - edges[last]
+        else:  # the mirror point beyond the wall: no flux
+            lap[first] += 2.0 * edges[first]
+            lap[last] -= 2.0 * edges[last]
+        del edges
     return lap, grad_energy, volume
 
 
