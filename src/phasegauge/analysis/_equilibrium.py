@@ -8,7 +8,10 @@ planar equilibrium interface is ``sigma = int kappa |dphi/dn|^2 dn``, so over a 
 
 On a uniform regular grid with cell values: the Laplacian by the five- (seven-) point stencil,
 the gradient energy by face differences (the discrete energy whose variation is that
-Laplacian), zero flux through the boundary unless the axis is periodic.
+Laplacian), zero flux through the boundary unless the axis is periodic. With point values: the
+same on the point lattice, edge differences between neighbouring points and f and mu at the
+points, each point weighted by its share of the cells (the trapezoid rule: half a spacing on a
+boundary plane); a periodic axis's two boundary planes are one plane written twice.
 
 References
 ----------
@@ -42,7 +45,84 @@ def _nan() -> dict:
     return {key: float("nan") for key in EQUILIBRIUM_KEYS}
 
 
-def equilibrium_metrics(mesh: Mesh, field_cell, model, *, kappa: float, periodic=(),
+def _cell_lattice(phi: np.ndarray, h: tuple, wrapped: tuple) -> tuple[np.ndarray, float]:
+    """Laplacian and sum of squared gradients times volume of cell values (face differences)."""
+    dV = float(np.prod(h))
+    lap = np.zeros_like(phi)
+    grad_energy = 0.0
+    term = np.empty_like(phi)
+    for k, (step, wraps) in enumerate(zip(h, wrapped)):
+        # along the axis k: the first and last layers, all but the first, all but the last
+        first, last, rest, head = (_along(phi.ndim, k, part) for part in
+                                   (slice(0, 1), slice(-1, None), slice(1, None), slice(None, -1)))
+        # (ahead - 2 phi + behind) / h^2 in place, term by term in that order; beyond the
+        # boundary the cell itself (no flux) or, on a periodic axis, the far end
+        np.multiply(phi, 2.0, out=term)
+        np.subtract(phi[rest], term[head], out=term[head])
+        np.subtract(phi[first] if wraps else phi[last], term[last], out=term[last])
+        term[rest] += phi[head]
+        term[first] += phi[last] if wraps else phi[first]
+        term /= step ** 2
+        lap += term
+        faces = np.diff(phi, axis=k)
+        if wraps:  # the face between the far end and the first cell, last
+            faces = np.concatenate([faces, phi[first] - phi[last]], axis=k)
+        grad_energy += float(np.sum(faces ** 2)) / step ** 2 * dV
+    return lap, grad_energy
+
+
+def _point_weights(n: int, step: float, ndim: int, axis: int) -> np.ndarray:
+    """Trapezoid weights of ``n`` points a ``step`` apart, shaped to broadcast along ``axis``."""
+    w = np.full(n, step)
+    w[[0, -1]] *= 0.5
+    shape = [1] * ndim
+    shape[axis] = n
+    return w.reshape(shape)
+
+
+def _point_lattice(phi: np.ndarray, h: tuple, wrapped: tuple) -> tuple[np.ndarray, float, np.ndarray]:
+    """Laplacian, sum of squared gradients times volume, and the points' volumes, of point values.
+
+    Edge differences between neighbouring points, each edge weighted by its length times the
+    trapezoid weights across it; the Laplacian is that energy's variation per point volume: beyond
+    a wall the mirror point (no flux), across a periodic axis's boundary plane the point next to the
+    far plane (the two planes are the same points).
+    """
+    ndim = phi.ndim
+    weights = [_point_weights(n, step, ndim, k) for k, (n, step) in enumerate(zip(phi.shape, h))]
+    volume = np.ones((1,) * ndim)
+    for w in weights:
+        volume = volume * w
+    lap = np.zeros_like(phi)
+    grad_energy = 0.0
+    for k, (step, wraps) in enumerate(zip(h, wrapped)):
+        across = np.ones((1,) * ndim)
+        for j, w in enumerate(weights):
+            if j != k:
+                across = across * w
+        edges = np.diff(phi, axis=k)
+        squares = np.square(edges)
+        squares *= across
+        grad_energy += float(squares.sum()) / step
+        del squares
+        # along the axis k: the first, last, second and last but one planes of points; the first
+        # and last edges; all edges but the first, all but the last
+        first, last, second, before_last, rest, head = (
+            _along(ndim, k, part) for part in (slice(0, 1), slice(-1, None), slice(1, 2), slice(-2, -1),
+                                               slice(1, None), slice(None, -1)))
+        edges /= step ** 2  # differences per spacing squared from here on
+        lap[_along(ndim, k, slice(1, -1))] += edges[rest] - edges[head]  # (ahead - behind) inside
+        if wraps:  # across the boundary plane: the point next to the far plane (the same plane)
+            lap[first] += edges[first] - (phi[first] - phi[before_last]) / step ** 2
+            lap[last] += (phi[second] - phi[last]) / step ** 2 - edges[last]
+        else:  # the mirror point beyond the wall: no flux
+            lap[first] += 2.0 * edges[first]
+            lap[last] -= 2.0 * edges[last]
+        del edges
+    return lap, grad_energy, volume
+
+
+def equilibrium_metrics(mesh: Mesh, field, model, *, kappa: float, periodic=(),
                         interface_size: float | None = None, temperature: float | None = None) -> dict:
     """Chemical potential spread, free energy and interfacial tension of one step.
 
@@ -50,8 +130,9 @@ def equilibrium_metrics(mesh: Mesh, field_cell, model, *, kappa: float, periodic
     ----------
     mesh : Mesh
         A uniform regular grid (other meshes give NaN).
-    field_cell : ndarray of shape (n_cells,)
-        The order parameter in the model's own variable (the field as written, not c).
+    field : ndarray of shape (n_cells,) or (n_points,)
+        The order parameter in the model's own variable (the field as written, not c), on the
+        cells or on the points: point values are measured on the point lattice itself.
     model : DoubleWellModel, NrtlModel or RegularSolutionModel
         The bulk free energy ``f`` (``model.mixing_gibbs``) and its slope
         (``model.mixing_gibbs_slope``): the double well ``height (phi - lean)^2 (phi - rich)^2``,
@@ -60,7 +141,8 @@ def equilibrium_metrics(mesh: Mesh, field_cell, model, *, kappa: float, periodic
     kappa : float
         Gradient-energy coefficient (> 0), in field^-2 energy length^2 per volume units.
     periodic : sequence of {'x', 'y', 'z'}
-        Periodic axes (the stencil wraps); other boundaries carry no flux.
+        Periodic axes (the stencil wraps; with point values the two boundary planes hold the same
+        points); other boundaries carry no flux.
     interface_size : float, optional
         Length (2D) or area (3D) of the interface, for the tension.
     temperature : float, optional
@@ -86,37 +168,21 @@ def equilibrium_metrics(mesh: Mesh, field_cell, model, *, kappa: float, periodic
     if kappa is None:
         raise OptionError("kappa is needed", fix="write kappa = 1e-4 in the model file")
     grid = mesh.regular_grid
-    values = np.asarray(field_cell, dtype=np.float64)
-    if grid is None or not grid.uniform or values.shape != (mesh.n_cells,):
+    values = np.asarray(field, dtype=np.float64)
+    if grid is None or not grid.uniform or values.shape not in ((mesh.n_cells,), (mesh.n_points,)):
         return _nan()
-    phi = grid.cells_to_array(values)
+    on_points = values.shape == (mesh.n_points,)
+    phi = grid.points_to_array(values) if on_points else grid.cells_to_array(values)
     if not np.isfinite(phi).all():
         return _nan()
     h = grid.spacing
-    dV = float(np.prod(h))
     wrap = {AXIS_INDEX[a] for a in periodic}
-    lap = np.zeros_like(phi)
-    grad_energy = 0.0
-    term = np.empty_like(phi)
-    for k, (step, mesh_axis) in enumerate(zip(h, grid.mesh_axes)):
-        wrapped = mesh_axis in wrap
-        # along the axis k: the first and last layers, all but the first, all but the last
-        first, last, rest, head = (_along(phi.ndim, k, part) for part in
-                                   (slice(0, 1), slice(-1, None), slice(1, None), slice(None, -1)))
-        # (ahead - 2 phi + behind) / h^2 in place, term by term in that order; beyond the
-        # boundary the cell itself (no flux) or, on a periodic axis, the far end
-        np.multiply(phi, 2.0, out=term)
-        np.subtract(phi[rest], term[head], out=term[head])
-        np.subtract(phi[first] if wrapped else phi[last], term[last], out=term[last])
-        term[rest] += phi[head]
-        term[first] += phi[last] if wrapped else phi[first]
-        term /= step ** 2
-        lap += term
-        faces = np.diff(phi, axis=k)
-        if wrapped:  # the face between the far end and the first cell, last
-            faces = np.concatenate([faces, phi[first] - phi[last]], axis=k)
-        grad_energy += float(np.sum(faces ** 2)) / step ** 2 * dV
-    del term
+    wrapped = tuple(axis in wrap for axis in grid.mesh_axes)
+    if on_points:
+        lap, grad_energy, volume = _point_lattice(phi, h, wrapped)
+    else:
+        lap, grad_energy = _cell_lattice(phi, h, wrapped)
+        volume = float(np.prod(h))
     if getattr(model, "kind", "") != "double-well":  # a mole fraction: the logarithms need 0 < x < 1
         if temperature is None or not np.isfinite(temperature):
             return _nan()
@@ -124,14 +190,23 @@ def equilibrium_metrics(mesh: Mesh, field_cell, model, *, kappa: float, periodic
     bulk = model.mixing_gibbs(phi, temperature)
     mu = model.mixing_gibbs_slope(phi, temperature) - kappa * lap
     del lap
-    mean = float(mu.mean())
-    dev = mu - mean
+    if on_points:
+        total = float(np.sum(np.broadcast_to(volume, mu.shape)))
+        mean = float(np.sum(mu * volume)) / total
+        dev = mu - mean
+        rms = float(np.sqrt(np.sum(dev ** 2 * volume) / total))
+        bulk_energy = float(np.sum(bulk * volume))
+    else:  # one volume per cell
+        mean = float(mu.mean())
+        dev = mu - mean
+        rms = float(np.sqrt(np.mean(dev ** 2)))
+        bulk_energy = float(bulk.sum() * volume)
     tension = (kappa * grad_energy / interface_size
                if interface_size is not None and np.isfinite(interface_size) and interface_size > 0
                else float("nan"))
     return {"chemical_potential_mean": mean,
             "chemical_potential_spread_max": float(np.abs(dev).max()),
-            "chemical_potential_spread_rms": float(np.sqrt(np.mean(dev ** 2))),
-            "free_energy": float(bulk.sum() * dV + 0.5 * kappa * grad_energy),
+            "chemical_potential_spread_rms": rms,
+            "free_energy": float(bulk_energy + 0.5 * kappa * grad_energy),
             "gradient_energy": float(kappa * grad_energy),
             "interfacial_tension": float(tension)}

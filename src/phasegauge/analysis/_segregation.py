@@ -11,6 +11,7 @@ from ..model.fields import cell_values
 from ..model.corners import cell_extent
 from ..model.mesh import Mesh
 from ..model.simplices import clip_simplices, simplex_measures, split_cells
+from ._labelling import _normalize_periodic
 from ._sums import dot
 
 
@@ -228,7 +229,7 @@ def mixing_length(profile: pd.DataFrame, *, target: float = 0.9, reference: str 
     return float(ends[1]) - at if backwards else at - float(ends[0])
 
 
-def segregation_scale(mesh: Mesh, c_cell, *, resolution: int | None = None) -> float:
+def segregation_scale(mesh: Mesh, c_cell, *, resolution: int | None = None, periodic=()) -> float:
     """Linear scale of segregation (Danckwerts 1952) from the autocorrelation of c.
 
     Parameters
@@ -239,6 +240,9 @@ def segregation_scale(mesh: Mesh, c_cell, *, resolution: int | None = None) -> f
     resolution : int, optional
         Samples along the longest side of the bounding box. Default: about
         one per cell (mean cell size), at most 1024 (2D) or 160 (3D).
+    periodic : sequence of {'x', 'y', 'z'}
+        Periodic axes: the bounding box is one period along them, and the autocorrelation wraps
+        around (circular) instead of ending at the box's faces.
 
     Returns
     -------
@@ -256,8 +260,16 @@ def segregation_scale(mesh: Mesh, c_cell, *, resolution: int | None = None) -> f
     cell centroid; samples farther than 1.5 cell sizes from every centroid
     (outside a non-box domain) are left out. R(r) is the FFT autocorrelation of
     the masked fluctuation divided by the overlap count (an unbiased estimate),
-    averaged in shells one sample wide. Integrating up to the first zero of R
-    is common practice.
+    zero-padded along walled axes and circular along periodic ones, averaged in
+    shells one sample wide, each shell placed at the mean length of its lags
+    (not at its nominal radius: the lags rounded to one sample lie farther out on
+    average, 1.2 samples for the first shell in 2D). Integrating up to the first
+    zero of R is common practice.
+
+    On walled axes the finite window is felt: a pattern cut by the box's faces
+    reads a few per cent off (cos(kx) over whole periods, R(r) = cos(kr) -
+    sin(kr) / (k (L - r)) along x), and R near half the box can stay far from
+    the periodic one, so give the periodic axes of a periodic run.
 
     References
     ----------
@@ -270,8 +282,9 @@ def segregation_scale(mesh: Mesh, c_cell, *, resolution: int | None = None) -> f
                                    or resolution < 4):
         raise OptionError(f"resolution must be a whole number >= 4, found {resolution!r}",
                           fix="for example resolution=256")
+    _, wrapped = _normalize_periodic(mesh, periodic)
     sample, spacing = regular_sample(mesh, c, resolution)
-    return _scale_from_samples(sample, spacing)
+    return _scale_from_samples(sample, spacing, wrapped)
 
 
 def regular_sample(mesh: Mesh, c: np.ndarray, resolution: int | None = None):
@@ -306,7 +319,8 @@ def regular_sample(mesh: Mesh, c: np.ndarray, resolution: int | None = None):
     return sample, spacing
 
 
-def _scale_from_samples(sample: np.ndarray, spacing: np.ndarray) -> float:
+def _scale_from_samples(sample: np.ndarray, spacing: np.ndarray, wrapped=()) -> float:
+    """S from samples on a regular grid; ``wrapped``: indices of the periodic sample axes."""
     mask = np.isfinite(sample)
     if mask.sum() < 2:
         return np.nan
@@ -315,7 +329,8 @@ def _scale_from_samples(sample: np.ndarray, spacing: np.ndarray) -> float:
     variance = float(np.mean(fluctuation[mask] ** 2))
     if variance <= 0:
         return np.nan
-    padded = [2 * n for n in sample.shape]
+    # circular along periodic axes; zero-padded to twice the length along the others (no wrap-around)
+    padded = [n if k in wrapped else 2 * n for k, n in enumerate(sample.shape)]
     axes = tuple(range(sample.ndim))
     spectrum = np.fft.rfftn(fluctuation, padded, axes=axes)
     product = np.fft.irfftn(spectrum * np.conj(spectrum), padded, axes=axes)
@@ -328,13 +343,13 @@ def _scale_from_samples(sample: np.ndarray, spacing: np.ndarray) -> float:
     usable = (overlap > 0.5) & (radius <= limit)
     correlation = product[usable] / np.round(overlap[usable]) / variance
     step = float(min(spacing))
-    shell = np.round(radius[usable] / step).astype(int)
+    lengths = radius[usable]
+    shell = np.round(lengths / step).astype(int)
     count = np.bincount(shell)
-    with np.errstate(invalid="ignore", divide="ignore"):
-        R = np.bincount(shell, correlation) / count
-    r = np.arange(R.size) * step
     keep = count > 0
-    r, R = r[keep], R[keep]
+    # each shell at the mean length of its lags, where its mean R belongs
+    r = np.bincount(shell, lengths)[keep] / count[keep]
+    R = np.bincount(shell, correlation)[keep] / count[keep]
     negative = np.nonzero(R <= 0)[0]
     if negative.size:
         j = int(negative[0])

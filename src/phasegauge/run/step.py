@@ -243,7 +243,7 @@ def analyse_step(step, options, *, contour_dir: str | None = None, threads: int 
     if "mixing" in options.analyses:
         m.update(mixing.mixing_metrics(mesh, ind.cell, box=options.box))
         if options.segregation_scale:
-            m["segregation_scale"] = mixing.segregation_scale(mesh, ind.cell)
+            m["segregation_scale"] = mixing.segregation_scale(mesh, ind.cell, periodic=tuple(options.periodic))
         if options.section_axis is not None:
             if sections is not None:  # its error where one thread meets it: here
                 profile, notes = sections.result()
@@ -394,7 +394,8 @@ def _equilibrium(step, mesh, ind, options, interface_size) -> dict:
                                   "regular grid, which this mesh is not: their columns are left empty; sample the "
                                   "field onto such a grid", where=step.info.where), stacklevel=2)
     lo, hi = ind.range
-    c = ind.cell if ind.phase == "upper" else 1.0 - ind.cell
+    values = ind.point if ind.location == "point" else ind.cell  # point data on the point lattice itself
+    c = values if ind.phase == "upper" else 1.0 - values
     field = lo + (hi - lo) * c  # the field as written (the indicator maps lo -> 0, hi -> 1)
     temperature = None
     if options.free_energy.kind != "double-well":  # an activity model: the mole fraction, at the step's T
