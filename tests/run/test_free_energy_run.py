@@ -6,8 +6,6 @@ the Cahn & Hilliard (1958) tension sigma = (2 sqrt 2 / 3) sqrt(kappa beta) of (b
 whose drop of radius R holds F = sigma 2 pi R [calc].
 """
 
-import warnings
-
 import numpy as np
 import pytest
 
@@ -186,7 +184,5 @@ def test_a_closed_box_run_is_not_warned_periodic(tmp_path):
     mesh, c, _ = _grid_field(WALLED, n=64)
     run = _series(tmp_path / "run", mesh, c)
     model = _well(tmp_path / "well.toml", 0.0, 1.0, 4.0, 1e-3)
-    with warnings.catch_warnings():
-        warnings.simplefilter("error")
-        result = measure(run, "phi", free_energy=model, analyses=("interface",))
+    result = measure(run, "phi", free_energy=model, analyses=("interface",))
     assert not [w for w in result.warnings if "periodic" in str(w)]
