@@ -32,8 +32,9 @@ from phasegauge.meshgen import grid_mesh
 sys.path.insert(0, os.path.dirname(os.path.abspath(__file__)))
 from bench_miscibility import cpu_step_seconds, step_seconds, write_listing, write_step  # noqa: E402
 
-#: the double well (beta / 4)(phi^2 - 1)^2 with its gradient coefficient
-MODEL = '[model]\nkind = "double-well"\nlean = -1.0\nrich = 1.0\nheight = 0.25\nkappa = 2e-4\n'
+#: the double well (beta / 4)(phi^2 - 1)^2 with its gradient coefficient, written on c = (phi + 1) / 2 as
+#: --free-energy reads it (height times 16, kappa times 4)
+MODEL = '[model]\nkind = "double-well"\nlean = 0.0\nrich = 1.0\nheight = 4.0\nkappa = 8e-4\n'
 
 
 def pattern(shape, scale, seed=7):

@@ -173,7 +173,9 @@ def inspect(path, as_json, scan, sort_by_time):
               show_default=True, help="Comma-separated subset of the analyses to run.")
 @click.option("--adjacency", type=click.Choice(["face", "point"]), default="face", show_default=True,
               help="Cells that share a face (or an edge in 2D), or any point, belong to one droplet.")
-@click.option("--periodic", default="", help="Periodic axes for droplets, e.g. x,y.")
+@click.option("--periodic", default="",
+              help="Periodic axes, e.g. x,y: droplets, widths and bulk distances join across them, their boundary "
+                   "planes are never open, and the free energy's stencil wraps there (closed walls elsewhere).")
 @click.option("--ignore-remerge-within", "ignore_remerge_within", type=int, default=0, show_default=True,
               help="A breakup that merges again within this many steps (step numbers) is no event.")
 @click.option("--densities", default=None, help="Densities of the measured and the other phase, RHO1,RHO2.")
@@ -226,8 +228,10 @@ def inspect(path, as_json, scan, sort_by_time):
               help="CSV of measured values, 'x,y[,z],value[,time][,uncertainty]' (validation.csv).")
 @_add(_mixture_options)
 @click.option("--free-energy", "free_energy", default=None,
-              help="Model file of the double well with kappa, in the field's own variable: chemical potential "
-                   "spread, free energy and interfacial tension per step (regular grids).")
+              help="Model file with kappa (a double well, or an activity model at --temperature), read as --model "
+                   "reads it: on the field mapped through --range (0 to 1). Chemical potential spread, free energy "
+                   "and interfacial tension per step (uniform regular grids; the stencil wraps along --periodic "
+                   "axes only).")
 @click.option("--coarsening", is_flag=True,
               help="Characteristic lengths of the pattern per step (interface spacing, structure factor) and "
                    "L ~ t^n fitted to the interface spacing (the steps' times needed).")

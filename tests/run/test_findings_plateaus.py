@@ -45,8 +45,9 @@ def test_expected_shift_from_the_free_energy(tmp_path):
     (two phases 2 apart: mu = sigma / (2 R)), shift = mu / f''(1) = mu / (2 beta), in c: / 2."""
     beta, kappa = 1.0, 2e-4
     model = tmp_path / "well.toml"
-    model.write_text(f'[model]\nkind = "double-well"\nlean = -1.0\nrich = 1.0\nheight = {beta / 4}\n'
-                     f"kappa = {kappa}\n")
+    # the same well on c = (phi + 1) / 2, as --free-energy reads it: height (beta/4) 2^4, kappa 2^2 kappa
+    model.write_text(f'[model]\nkind = "double-well"\nlean = 0.0\nrich = 1.0\nheight = {4 * beta}\n'
+                     f"kappa = {4 * kappa}\n")
     result = measure(_series(tmp_path / "run"), field="phi", range=(-1, 1), free_energy=str(model))
     note = next(f for f in result.findings if f.kind == "bulk_plateaus")
     radius = 0.5 * result.droplets["equivalent_diameter"].iloc[-1]
@@ -79,8 +80,9 @@ def test_expected_shift_takes_the_meshs_dimension(tmp_path, dimension):
 
     beta, kappa, radius = 1.0, 2e-4, 0.2
     model = tmp_path / "well.toml"
-    model.write_text(f'[model]\nkind = "double-well"\nlean = -1.0\nrich = 1.0\nheight = {beta / 4}\n'
-                     f"kappa = {kappa}\n")
+    # the same well on c = (phi + 1) / 2, as --free-energy reads it: height (beta/4) 2^4, kappa 2^2 kappa
+    model.write_text(f'[model]\nkind = "double-well"\nlean = 0.0\nrich = 1.0\nheight = {4 * beta}\n'
+                     f"kappa = {4 * kappa}\n")
     options = MeasureOptions(field="phi", range=(-1, 1), free_energy=str(model))
     steps, droplets = _tables(radius, dimension)
     note = next(f for f in findings(steps, droplets, {}, options, [], dimension=dimension)
@@ -137,7 +139,8 @@ def test_a_shift_the_model_does_not_give_is_overshoot(tmp_path, low, found):
     from phasegauge.run.options import MeasureOptions
 
     model = tmp_path / "well.toml"
-    model.write_text('[model]\nkind = "double-well"\nlean = -1.0\nrich = 1.0\nheight = 0.25\nkappa = 2e-4\n')
+    # (1/4)(phi^2 - 1)^2 with kappa 2e-4 on phi, written on c = (phi + 1) / 2 (height times 16, kappa times 4)
+    model.write_text('[model]\nkind = "double-well"\nlean = 0.0\nrich = 1.0\nheight = 4.0\nkappa = 8e-4\n')
     options = MeasureOptions(field="phi", range=(-1, 1), free_energy=str(model))
     _, droplets = _tables(0.2, 2)  # expected shift in c: 0.0083 [the formula of the test above]
     kinds = [f.kind for f in findings(_shifted(low, 1.0), droplets, {}, options, [], dimension=2)]

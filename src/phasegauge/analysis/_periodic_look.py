@@ -1,8 +1,13 @@
-"""Whether a field looks periodic: its point values on opposite boundaries match to round-off.
+"""Whether a field looks periodic along an axis not measured as periodic.
 
-A periodic solver that writes its points on both ends of a period stores the same values
-there. Measured without periodic axes, such a run splits every droplet that crosses the
-boundary in two; this check lets the run say so.
+On points: a periodic solver that writes its points on both ends of a period stores the same
+values there. Measured without periodic axes, such a run splits every droplet that crosses the
+boundary in two; :func:`looks_periodic` lets the run say so.
+
+On the cells of a regular grid no value is written twice: there a field looks periodic when its
+last layer of cells joins the first as smoothly as neighbouring layers join inside
+(:func:`cells_look_periodic`). The stencil of the free energy and the chemical potential takes
+such an axis as a closed wall unless it is named periodic.
 """
 
 from __future__ import annotations
@@ -13,7 +18,7 @@ from ..model.axes import AXIS_NAMES
 from ..model.corners import corner_extremes
 from ..model.mesh import Mesh
 
-__all__ = ["looks_periodic", "ROUNDOFF"]
+__all__ = ["looks_periodic", "cells_look_periodic", "ROUNDOFF"]
 
 #: largest difference, relative to the field's spread on the boundary, counted as round-off
 ROUNDOFF = 1e-9
@@ -137,4 +142,69 @@ def looks_periodic(mesh: Mesh, c_point, *, periodic=(), level: float | None = No
         if pairs[2] is not None and float(np.max(np.abs(c[pairs[2]] - a))) <= MIN_VARIATION:
             continue  # nothing changes across the boundary (a layered field, a mirror wall): no sign
         found.append(name)
+    return found
+
+
+def _layer_rms(values: np.ndarray, axis: int) -> np.ndarray:
+    """Root mean square of ``values`` over each layer along ``axis`` (one number a layer)."""
+    others = tuple(a for a in range(values.ndim) if a != axis)
+    return np.sqrt(np.mean(np.square(values), axis=others))
+
+
+def cells_look_periodic(mesh: Mesh, c_cell, *, periodic=()) -> list:
+    """Axes of a regular grid along which the cell values look periodic.
+
+    Parameters
+    ----------
+    mesh : Mesh
+        A regular grid (any other mesh gives an empty list).
+    c_cell : ndarray of shape (n_cells,)
+        Cell values of the indicator, dimensionless (0 and 1 in the bulk phases).
+    periodic : sequence of str
+        Axes already measured as periodic (not checked).
+
+    Returns
+    -------
+    list of str
+        Axis names (``'x'``, ``'y'``, ``'z'``, the mesh's own) along which
+
+        - the first and last layers of cells vary along the boundary by more than
+          ``MIN_VARIATION`` (a uniform phase on both walls proves nothing, as for points),
+        - the second differences across the boundary with the last layer wrapped onto the first
+          are no larger (root mean square over the two boundary layers) than those of the roughest
+          layer inside: the layers join across the boundary as neighbouring layers do, and
+        - they are smaller than with closed walls (the boundary cell itself beyond the boundary,
+          the no-flux stencil): a field with no gradient at its walls, and noise, join no better
+          wrapped.
+
+    Notes
+    -----
+    The second differences are the Laplacian's stencil times h^2 (the discrete operator of
+    :func:`phasegauge.analysis.thermo.equilibrium_metrics`). Our check: a periodic
+    Cahn-Hilliard run (96^2, kappa = 2, from noise to late coarsening) reads 0.36 to 0.70 of the
+    roughest inner layer wrapped and is smaller wrapped than walled at every resolved step; the
+    same run with walls (cosine transform, no flux) reads 5.9 to 25 wrapped; its starting noise
+    reads 0.85 wrapped and 0.48 walled (no sign). An axis with fewer than 4 layers is not checked.
+    """
+    grid = mesh.regular_grid
+    values = np.asarray(c_cell, dtype=np.float64)
+    if grid is None or values.shape != (mesh.n_cells,) or not np.isfinite(values).all():
+        return []
+    field = grid.cells_to_array(values)
+    found = []
+    for k, mesh_axis in enumerate(grid.mesh_axes):
+        name = AXIS_NAMES[mesh_axis]
+        if name in periodic or field.shape[k] < 4:
+            continue
+        layers = np.moveaxis(field, k, 0)
+        first, last = layers[0], layers[-1]
+        if not max(float(np.ptp(first)), float(np.ptp(last))) > MIN_VARIATION:
+            continue
+        steps = np.diff(layers, axis=0)  # d_i = layer i+1 - layer i
+        inner = float(_layer_rms(np.diff(steps, axis=0), 0).max())
+        jump = first - last  # the step from the last layer to the first, wrapped
+        wrapped = np.sqrt(0.5 * (np.mean(np.square(steps[0] - jump)) + np.mean(np.square(jump - steps[-1]))))
+        walled = np.sqrt(0.5 * (np.mean(np.square(steps[0])) + np.mean(np.square(steps[-1]))))
+        if wrapped <= inner and wrapped < walled:
+            found.append(name)
     return found

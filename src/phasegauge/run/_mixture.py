@@ -100,12 +100,9 @@ def normalize_mixture(options) -> dict:
     if not hasattr(model, "mixing_gibbs"):
         raise OptionError(f"model must be a mixture model or a model file, found {type(model).__name__}",
                           fix="give --model MODEL.toml (see sample_fields/solvent_pair.toml)")
-    lean, rich = getattr(model, "lean", 0.0), getattr(model, "rich", 1.0)  # a double well's bulk values
-    if not (0.0 <= lean < rich <= 1.0):
-        raise OptionError(f"the mixture model's bulk values ({lean:g}, {rich:g}) lie outside [0, 1], but the "
-                          "measured compositions are on the mapped scale of --range (0 to 1)",
-                          fix="write the double well's lean and rich as mole fractions in [0, 1] (for a field "
-                              "in [-1, 1] with --range -1,1: lean = 0, rich = 1)")
+    from .options import check_mapped_wells
+
+    check_mapped_wells(model, options.range, "--model")  # the measured compositions are on the mapped scale
     out["model"] = model
     out.update(_one_temperature(options, "a mixture model"))
     for name in ("temperature_field", "solute"):

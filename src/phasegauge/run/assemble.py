@@ -544,7 +544,7 @@ def _bulk_plateaus(steps, droplets=None, options=None, dimension=None, kind="unk
 def _expected_shift(droplets, options, dimension):
     """Gibbs-Thomson shift of the bulk in c for the largest drop of the last step, or None.
 
-    For the double well h (phi - lean)^2 (phi - rich)^2 with gradient coefficient kappa:
+    For the double well h (c - lean)^2 (c - rich)^2 on the mapped composition, with gradient coefficient kappa:
     sigma = (rich - lean)^3 sqrt(2 kappa h) / 6, and a drop of radius R raises the chemical
     potential of both bulks by mu = (d - 1) sigma / (R (rich - lean)), which moves each bulk by
     mu / f'' with f'' = 2 h (rich - lean)^2 at the wells (Cahn & Hilliard 1958; linearised).
@@ -562,8 +562,7 @@ def _expected_shift(droplets, options, dimension):
     gap = model.rich - model.lean
     sigma = gap ** 3 * np.sqrt(2.0 * model.kappa * model.height) / 6.0
     mu = (dim - 1) * sigma / (radius * gap)
-    lo, hi = options.range
-    return float(mu / (2.0 * model.height * gap ** 2) / (hi - lo))
+    return float(mu / (2.0 * model.height * gap ** 2))  # the well is on c itself (run/_phase_field.py)
 
 
 def _number(value):

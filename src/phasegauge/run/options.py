@@ -134,7 +134,8 @@ class MeasureOptions:
         Cells that share a face (or any point) belong to one droplet (old name
         ``connectivity``).
     periodic : tuple of str
-        Periodic axes (``'x'``, ``'y'``, ``'z'``) for droplet labelling.
+        Periodic axes (``'x'``, ``'y'``, ``'z'``): droplets, widths and bulk distances join across
+        them, their boundary planes are never open, and the free energy's stencil wraps there.
     ignore_remerge_within : int
         A breakup that merges again within this many steps is not an event.
     densities : tuple of float or None
@@ -176,10 +177,12 @@ class MeasureOptions:
         Measure a mesh one cell thick (quasi-2D) as 3D; by default it is
         measured per unit depth as 2D on its lower face plane.
     free_energy : str or model, optional
-        A model file (or model) with its gradient coefficient kappa: a double well in the
-        field's own variable, or an activity model (NRTL, regular solution) in the mole fraction
-        at ``temperature`` (or ``temperature_field``). Each step then gets the chemical
-        potential's spread, the free energy and the interfacial tension (regular grids).
+        A model file (or model) with its gradient coefficient kappa, read as ``model`` reads it:
+        on the composition c mapped through ``range`` (a double well's ``lean`` and ``rich`` in
+        [0, 1]; an activity model, NRTL or regular solution, in the mole fraction c at
+        ``temperature`` or ``temperature_field``). Each step then gets the chemical potential's
+        spread, the free energy and the interfacial tension (uniform regular grids; the stencil
+        wraps along ``periodic`` axes and is closed, no flux, along the others).
     level_set : bool
         The field is a level set (a signed distance, zero on the interface; ``phase``
         picks its positive or negative side): the phase is where it has that sign, its
@@ -343,7 +346,7 @@ class MeasureOptions:
                                   fix="give the flow-weighted mean of c over every inlet together (0.25 where a "
                                       "quarter of the flow is dye), or leave it out")
         if self.free_energy is not None:
-            set_(self, "free_energy", _free_energy_model(self.free_energy))
+            set_(self, "free_energy", _free_energy_model(self.free_energy, self.range))
         if self.box is not None:
             box = tuple(tuple(float(v) for v in pair) for pair in self.box)
             if len(box) not in (2, 3) or any(len(p) != 2 or p[0] >= p[1] for p in box):
@@ -382,11 +385,12 @@ class MeasureOptions:
         return None
 
 
-def _free_energy_model(value):
+def _free_energy_model(value, value_range):
     """The free-energy model of ``--free-energy`` (a model file path or a model), with its kappa.
 
-    A double well in the field's own variable, or an activity model (NRTL, regular solution) in
-    the mole fraction (the field mapped through the range), at the run's temperature.
+    Read as ``--model`` reads a model (:func:`check_mapped_wells`): a double well on the
+    composition mapped through the range, an activity model (NRTL, regular solution) in that
+    composition as the mole fraction, at the run's temperature.
     """
     import os
 
@@ -398,7 +402,40 @@ def _free_energy_model(value):
         raise OptionError("the free energy needs a model with its gradient coefficient kappa",
                           fix='add kappa = 1e-4 to the [model] table of the model file (a "double-well", '
                               '"regular" or "nrtl" model)')
+    check_mapped_wells(value, value_range, "--free-energy")
     return value
+
+
+def check_mapped_wells(model, value_range, option: str) -> None:
+    """Refuse a double well whose bulk values lie outside [0, 1], in one line with the same well on
+    the mapped scale.
+
+    ``--model`` and ``--free-energy`` read a model alike: on the composition c mapped through
+    ``--range`` (0 at the range's low end, 1 at its high end). A well written on the field's own
+    scale, h (phi - a)^2 (phi - b)^2 with kappa, is with phi = lo + (hi - lo) c the well
+    h (hi - lo)^4 (c - a')^2 (c - b')^2, a' = (a - lo) / (hi - lo), with kappa (hi - lo)^2: the same
+    energy, which the fix writes out.
+    """
+    if getattr(model, "kind", None) != "double-well":
+        return
+    lean, rich = model.lean, model.rich
+    if 0.0 <= lean < rich <= 1.0:
+        return
+    lo, hi = value_range
+    scale = hi - lo
+    mapped = sorted(((lean - lo) / scale, (rich - lo) / scale))
+    if -1e-12 <= mapped[0] and mapped[1] <= 1.0 + 1e-12:  # the well on the field's own scale: convert it
+        parts = [f"lean = {max(mapped[0], 0.0):g}", f"rich = {min(mapped[1], 1.0):g}",
+                 f"height = {model.height * scale ** 4:g}"]
+        if model.kappa is not None:
+            parts.append(f"kappa = {model.kappa * scale ** 2:g}")
+        fix = f"write the same well on the mapped scale of --range {lo:g},{hi:g}: " + ", ".join(parts)
+    else:
+        fix = ("give the field's range with --range LO,HI and write the well on c = (value - LO) / (HI - LO), its "
+               "height times (HI - LO)^4, kappa times (HI - LO)^2 (a field in [-1, 1]: --range -1,1, lean = 0, "
+               "rich = 1, height times 16, kappa times 4)")
+    raise OptionError(f"the double well's bulk values ({lean:g}, {rich:g}) lie outside [0, 1], but {option} reads "
+                      "the model on the composition mapped through --range (0 to 1)", fix=fix)
 
 
 def check_workers(workers) -> int:

@@ -385,27 +385,11 @@ def _label_droplets(mesh, ind, options, u_cell, contour, plateaus):
 
 
 def _equilibrium(step, mesh, ind, options, interface_size) -> dict:
-    """Chemical potential spread, free energy and tension of the field in the model's own variable."""
-    from ..analysis.thermo import equilibrium_metrics
+    """Chemical potential spread, free energy and tension of the field mapped through the range
+    (:func:`phasegauge.run._phase_field.equilibrium_step`)."""
+    from ._phase_field import equilibrium_step
 
-    grid = mesh.regular_grid
-    if grid is None or not grid.uniform:  # the Laplacian's stencil needs one spacing per axis
-        warnings.warn(MeshWarning("the free energy, tension and chemical potential (--free-energy) need a uniform "
-                                  "regular grid, which this mesh is not: their columns are left empty; sample the "
-                                  "field onto such a grid", where=step.info.where), stacklevel=2)
-    lo, hi = ind.range
-    values = ind.point if ind.location == "point" else ind.cell  # point data on the point lattice itself
-    c = values if ind.phase == "upper" else 1.0 - values
-    field = lo + (hi - lo) * c  # the field as written (the indicator maps lo -> 0, hi -> 1)
-    temperature = None
-    if options.free_energy.kind != "double-well":  # an activity model: the mole fraction, at the step's T
-        from ._mixture import step_temperature
-
-        field = c  # the mole fraction of the model's component, mapped through the range
-        temperature = step_temperature(step, mesh, options)
-    return equilibrium_metrics(mesh, field, options.free_energy, kappa=options.free_energy.kappa,
-                               periodic=tuple(options.periodic), interface_size=interface_size,
-                               temperature=temperature)
+    return equilibrium_step(step, mesh, ind, options, interface_size)
 
 
 def _warn_periodic_look(mesh, c_point, options, where: str) -> None:
