@@ -146,8 +146,10 @@ def test_measure_reads_the_tension_of_point_data_on_the_points(tmp_path):
     h = 1.0 / n
     kappa = beta * (2 * h / np.sqrt(2)) ** 2
     model_file = tmp_path / "well.toml"
-    model_file.write_text(f'[model]\nkind = "double-well"\nlean = -1.0\nrich = 1.0\nheight = {beta / 4}\n'
-                          f"kappa = {float(kappa)!r}\n")
+    # the well (beta/4)(phi^2 - 1)^2 with kappa on phi, written on c = (phi + 1)/2 as --free-energy reads it:
+    # height 16 beta/4, kappa x 4 (phi = 2c - 1); F and sigma are the same in either variable
+    model_file.write_text(f'[model]\nkind = "double-well"\nlean = 0.0\nrich = 1.0\nheight = {16 * beta / 4}\n'
+                          f"kappa = {float(4 * kappa)!r}\n")
     folder = tmp_path / "run"
     folder.mkdir()
     mesh = _strip(n, rows)
