@@ -147,6 +147,12 @@ def test_a_mesh_warning_reads_alike_on_one_or_two_workers(tmp_path):
         lines.append([w for w in result.warnings if "inverted" in w])
     assert lines[0] == lines[1] and len(lines[0]) == 1
     assert "1 cell is inverted" in lines[0][0] and lines[0][0].endswith("(and 4 more steps)")
+    # the manifest lists the run's warnings as the result does: once each, not once a step
+    import json
+
+    result = measure(path, "alpha", analyses=("conservation",), out=str(tmp_path / "out"))
+    manifest = json.loads((tmp_path / "out" / "manifest.json").read_text())
+    assert manifest["warnings"] == result.warnings and [w for w in manifest["warnings"] if "inverted" in w] == lines[0]
 
 
 def test_a_read_warning_counts_every_step_of_its_mesh_on_one_or_two_workers(tmp_path):

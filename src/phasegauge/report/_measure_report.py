@@ -63,7 +63,7 @@ def measure_figures(result, snapshots: dict | None = None) -> list:
 
 
 def write_measure_report(out, result, *, series: dict, inputs: list, snapshots: dict | None,
-                         step_warnings: list, step_timings: dict, version: str, started: float,
+                         step_timings: dict, version: str, started: float,
                          execution: dict) -> None:
     """Write every output of a measure run into ``out`` (each file atomically).
 
@@ -79,8 +79,6 @@ def write_measure_report(out, result, *, series: dict, inputs: list, snapshots: 
         The input files with ``path``, ``bytes`` and ``sha256``.
     snapshots : dict or None
         Interface arrays of chosen steps (``steps``, ``times``, ``bounds``, ``axis_names``).
-    step_warnings : list of str
-        Each step's warnings, once.
     step_timings : dict
         ``step_seconds_sum`` and ``steps_reused``.
     version : str
@@ -131,7 +129,7 @@ def write_measure_report(out, result, *, series: dict, inputs: list, snapshots: 
                "plot_format": plot_format, "keep_cache": execution.pop("keep_cache", False)}
     invocation = execution.pop("invocation", None)
     fields = {"invocation": invocation, "series": dict(series), "options": options, "execution": execution,
-              "skipped_steps": result.skipped, "warnings": list(step_warnings), "flags": result.flags,
+              "skipped_steps": result.skipped, "warnings": list(result.warnings), "flags": result.flags,
               "standing_checks": list(getattr(result, "standing_checks", None) or []),
               "interface_kind": (result.audit or {}).get("interface_kind")}
     timings = {"total_seconds": round(time.time() - started, 3), "report_seconds": round(time.time() - t0, 3),

@@ -138,7 +138,7 @@ def measure_report_data(series, result) -> dict:
     """Keyword arguments of :func:`phasegauge.report.write_measure_report` besides the tables.
 
     ``series`` (a record), ``inputs`` (files with size and SHA-256), ``snapshots`` (interface arrays
-    of the steps whose contours were kept), ``step_warnings`` (each step's warnings once),
+    of the steps whose contours were kept),
     ``step_timings`` and ``version``.
     """
     results = list(result.results)
@@ -156,7 +156,6 @@ def measure_report_data(series, result) -> dict:
         "series": record,
         "inputs": series_input_files(series, results),
         "snapshots": interface_snapshots(result.mesh, contours, {r.index: r.time for r in results}),
-        "step_warnings": sorted({m for r in results for m in r.messages}),
         "version": package_version(),
         "step_timings": {"step_seconds_sum": round(sum(r.seconds for r in results if not r.reused), 3),
                          "steps_reused": sum(1 for r in results if r.reused)},

@@ -64,7 +64,6 @@ class StepResult:
     profile: object = None  # DataFrame or None
     contour: object = None  # Contour of the step (kept for snapshots)
     mesh_signature: str = ""
-    messages: list = field(default_factory=list)
     skipped: str | None = None
     seconds: float = 0.0
     file_sha256: str = ""
@@ -528,7 +527,6 @@ class StepRunner:
             # blocks left out are an info line of the run, not a finding: kept apart from the step's warnings
             result.notes = [rec for rec in records if issubclass(rec[0], BlocksLeftOutNote)]
             result.warning_records = [rec for rec in records if not issubclass(rec[0], BlocksLeftOutNote)]
-        result.messages = [f"{where}: {what}" for _, what, where in result.warning_records]
         result.seconds = time.perf_counter() - start
         result.file_sha256 = entry.file_sha256 if entry is not None else ""
         if entry is not None and result.skipped is None:  # a bad step is tried again on resume
