@@ -204,7 +204,8 @@ def _compare_runs(first, second, *, out, overwrite, level, time_tolerance, spaci
         n_pairs = len(pairs)
         keep = set(np.linspace(0, n_pairs - 1, min(snapshots, n_pairs)).round().astype(int)) if n_pairs else set()
         shapes, overlays = paired_shapes(pairs, res_a.results, res_b.results, plan, series=series,
-                                         specs=(first, second), level=level, spacing=spacing, overlay_pairs=keep)
+                                         options=(res_a.options, res_b.options), level=level, spacing=spacing,
+                                         overlay_pairs=keep)
     finally:
         for s in series:
             s.close()
