@@ -4,9 +4,11 @@ import json
 
 import numpy as np
 import pandas as pd
+import pytest
 from click.testing import CliRunner
 
 from phasegauge.cli import main
+from phasegauge.errors import OptionError
 from phasegauge.run.compare import RunSpec, compare_runs
 from phasegauge.meshgen import delaunay_mesh, grid_mesh, to_meshio
 from phasegauge.samples import circle_fraction
@@ -101,3 +103,18 @@ def test_a_diffuse_and_a_sharp_run_are_told_apart(tmp_path):
     assert "the interfaces are of different kinds (pf diffuse" in report
     named = report.split("the interfaces are of different kinds")[1]
     assert "interface_width" in named and "mixed_volume_fraction" in named
+
+
+@pytest.mark.parametrize("labels, said", [(("case 1", "case/1"), "both name steps_case_1.csv"),
+                                          (("run", "run"), "are the same")])
+def test_labels_that_name_one_steps_table_are_refused(tmp_path, labels, said):
+    # 'case 1' and 'case/1' both became steps_case_1.csv: the second run's table overwrote the first's, and
+    # the manifest's per-label records (unpaired steps, warnings, interface kind) kept one run
+    a, b = _disc_runs(tmp_path)
+    with pytest.raises(OptionError, match=f"'{labels[0]}' and '{labels[1]}' {said}") as caught:
+        compare_runs(RunSpec(a, "phi", (-1, 1), label=labels[0]), RunSpec(b, "alpha", label=labels[1]),
+                     out=tmp_path / "o")
+    assert "distinct labels" in caught.value.fix and not (tmp_path / "o").exists()  # refused before measuring
+    res = CliRunner().invoke(main, ["compare", a, b, "--field-a", "phi", "--field-b", "alpha", "--label-a",
+                                    labels[0], "--label-b", labels[1], "-o", str(tmp_path / "o")])
+    assert res.exit_code != 0 and len(res.output.strip().splitlines()) == 1 and "distinct labels" in res.output

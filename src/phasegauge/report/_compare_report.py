@@ -15,7 +15,13 @@ from ._html import Page
 from ._drawing import save_figures
 from ._measure_report import CAUTION, kind_words, manifest, verdict_lines
 
-__all__ = ["write_compare_report", "compare_figures"]
+__all__ = ["write_compare_report", "compare_figures", "steps_file_name"]
+
+
+def steps_file_name(label: str) -> str:
+    """The steps table of the run labelled ``label``: ``steps_<label>.csv``, every run of other characters
+    than letters, digits, ``_``, ``.`` and ``-`` in the label made one ``_`` (a label of any text: one file)."""
+    return "steps_{}.csv".format(re.sub(r"[^A-Za-z0-9_.-]+", "_", label))
 
 
 def compare_figures(result, *, overlays, level: float, time_origin: str | None = None) -> list:
@@ -92,7 +98,7 @@ def write_compare_report(out, result, *, specs, overlays, inputs: list, version:
             atomic_write_csv(os.path.join(out, name), frame)
             written.append(name)
     for label, res in zip(result.labels, (result.first, result.second)):
-        name = "steps_{}.csv".format(re.sub(r"[^A-Za-z0-9_.-]+", "_", label))  # a label of any text: one file
+        name = steps_file_name(label)
         atomic_write_csv(os.path.join(out, name), res.steps)
         written.append(name)
     first_origin = (time_origins or {}).get(result.labels[0])

@@ -144,7 +144,7 @@ def _compare_runs(first, second, *, out, overwrite, level, time_tolerance, spaci
 
         check_threads(threads)
     started = time.time()
-    labels = (first.label or "first", second.label or "second")
+    labels = _distinct_labels(first, second)
     if rising_bubble and first.velocity is None:
         warnings.warn(PhasegaugeWarning("the rising-bubble check reads the bubble's rise velocity from the first "
                                         "run's velocity field, which was not given, so its velocity checks read "
@@ -302,6 +302,22 @@ def _checked_reference_table(path):
                           "nor a droplets.csv one", where=os.fspath(path),
                           fix="name a column of steps.csv or of droplets.csv (the largest droplet's; see the README)")
     return table
+
+
+def _distinct_labels(first: RunSpec, second: RunSpec) -> tuple:
+    """The two runs' labels ('first' and 'second' where not given); labels that are equal, or that name
+    the same steps table, are refused: one run's table and its entries in the manifest and report,
+    which are keyed by label, would overwrite the other's."""
+    from ..report._compare_report import steps_file_name
+
+    labels = (first.label or "first", second.label or "second")
+    if steps_file_name(labels[0]) == steps_file_name(labels[1]):
+        same = "are the same" if labels[0] == labels[1] else f"both name {steps_file_name(labels[0])}"
+        raise OptionError(f"the runs' labels {labels[0]!r} and {labels[1]!r} {same}: one run's steps table and its "
+                          "entries in the manifest and report would overwrite the other's",
+                          fix="give the runs distinct labels (--label-a, --label-b; recipe: label in [first] and "
+                              "[second]) that differ in a letter, digit, '_', '.' or '-'")
+    return labels
 
 
 def _chosen(spec: RunSpec, series, flag: str) -> list:
