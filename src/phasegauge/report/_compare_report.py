@@ -124,7 +124,9 @@ def write_compare_report(out, result, *, specs, overlays, inputs: list, version:
                          for k, v in result.unpaired.items())
     origins = {k: v for k, v in (time_origins or {}).items() if v}
     said = ("; times from " + ", ".join(f"{k}: {v}" for k, v in origins.items())) if origins else ""
-    page.paragraph(f"{len(result.pairs)} paired times; {unpaired}{said}.")
+    numbered = getattr(result, "paired_by", "") == "step number"
+    by = " (paired by step number: neither run stores times)" if numbered else ""
+    page.paragraph(f"{len(result.pairs)} paired times{by}; {unpaired}{said}.")
     if len(result.reference_checks):
         page.heading("Published and reference values")
         checks = result.reference_checks
@@ -170,7 +172,9 @@ def write_compare_report(out, result, *, specs, overlays, inputs: list, version:
                                                   for label, run in zip(result.labels, (result.first, result.second))},
                               "interface_kind": {label: _kind(run)[0] for label, run in
                                                  zip(result.labels, (result.first, result.second))},
-                              "time_origin": dict(time_origins or {})},
+                              "time_origin": dict(time_origins or {}),
+                              "paired_by": getattr(result, "paired_by", "time"),
+                              "comparison_warnings": list(getattr(result, "warnings", []))},
                       outputs=written, timings={"total_seconds": round(time.time() - started, 3)})
     atomic_write_json(os.path.join(out, "manifest.json"), record)
     mark_complete(out)
@@ -254,7 +258,8 @@ def _offset_findings(result) -> list:
 def _compare_findings(result) -> list:
     """Each run's flags (named by its label), a note when the interfaces are of different kinds, and
     every reference check that failed."""
-    found = _domain_findings(result)
+    found = list(getattr(result, "warnings", []))  # the comparison's own (steps paired by number)
+    found += _domain_findings(result)
     found += [f"{label}: {flag}" for label, run in zip(result.labels, (result.first, result.second))
               for flag in run.flags]
     kinds = [_kind(run) for run in (result.first, result.second)]
