@@ -4,16 +4,19 @@ import json
 
 import numpy as np
 import pandas as pd
+import pytest
 from click.testing import CliRunner
 
 from phasegauge.cli import main
+from phasegauge.errors import OptionError
 from phasegauge.run.compare import RunSpec, compare_runs
 from phasegauge.meshgen import delaunay_mesh, grid_mesh, to_meshio
 from phasegauge.samples import circle_fraction
 
 
-def _disc_runs(tmp_path):
-    """The same moving disc as an order parameter on triangles and a volume fraction on quads."""
+def _disc_runs(tmp_path, *, listings=False):
+    """The same moving disc as an order parameter on triangles and a volume fraction on quads: numbered files
+    that store no time, or (``listings``) 'time,path' listings of them at t = 0, 0.1, 0.2."""
     tri = delaunay_mesh(1500, seed=4)
     quad = grid_mesh((40, 40))
     for k in range(3):
@@ -24,6 +27,10 @@ def _disc_runs(tmp_path):
         r_q = np.hypot(quad.cell_centroids[:, 0] - cx, quad.cell_centroids[:, 1] - 0.5)
         alpha = 0.5 * (1 + np.tanh((0.2 - r_q) / 0.02))
         to_meshio(quad, cell_data={"alpha": alpha}).write(tmp_path / f"b_{k}.vtu")
+    if listings:
+        for run in "ab":
+            (tmp_path / f"{run}.steps").write_text("".join(f"{0.1 * k:g},{run}_{k}.vtu\n" for k in range(3)))
+        return str(tmp_path / "a.steps"), str(tmp_path / "b.steps")
     return str(tmp_path / "a_*.vtu"), str(tmp_path / "b_*.vtu")
 
 
@@ -50,7 +57,7 @@ def test_compare_two_conventions(tmp_path):
 
 
 def test_compare_cli_reference_table(tmp_path):
-    a, b = _disc_runs(tmp_path)
+    a, b = _disc_runs(tmp_path, listings=True)  # a check at a time needs the runs' times
     ref = tmp_path / "ref.csv"
     # the disc area pi r^2 = 0.125664 (exact geometry) as a user's reference value
     ref.write_text("quantity,time,value,tolerance\nphase_volume,0.0,0.125664,0.004\n")
@@ -101,3 +108,71 @@ def test_a_diffuse_and_a_sharp_run_are_told_apart(tmp_path):
     assert "the interfaces are of different kinds (pf diffuse" in report
     named = report.split("the interfaces are of different kinds")[1]
     assert "interface_width" in named and "mixed_volume_fraction" in named
+
+
+@pytest.mark.parametrize("labels, said", [(("case 1", "case/1"), "both name steps_case_1.csv"),
+                                          (("run", "run"), "are the same")])
+def test_labels_that_name_one_steps_table_are_refused(tmp_path, labels, said):
+    # 'case 1' and 'case/1' both became steps_case_1.csv: the second run's table overwrote the first's, and
+    # the manifest's per-label records (unpaired steps, warnings, interface kind) kept one run
+    a, b = _disc_runs(tmp_path)
+    with pytest.raises(OptionError, match=f"'{labels[0]}' and '{labels[1]}' {said}") as caught:
+        compare_runs(RunSpec(a, "phi", (-1, 1), label=labels[0]), RunSpec(b, "alpha", label=labels[1]),
+                     out=tmp_path / "o")
+    assert "distinct labels" in caught.value.fix and not (tmp_path / "o").exists()  # refused before measuring
+    res = CliRunner().invoke(main, ["compare", a, b, "--field-a", "phi", "--field-b", "alpha", "--label-a",
+                                    labels[0], "--label-b", labels[1], "-o", str(tmp_path / "o")])
+    assert res.exit_code != 0 and len(res.output.strip().splitlines()) == 1 and "distinct labels" in res.output
+
+
+def _drop_written_at_two_intervals(tmp_path):
+    """The same drop, r = 0.2, moving along x at speed 1: an order parameter on triangles written every
+    0.01 (6 files, A) and a volume fraction on quads written every 0.025 (3 files, B), numbered files that
+    store no time, and the same files in 'time,path' listings with their output times."""
+    tri, quad = delaunay_mesh(1500, seed=4), grid_mesh((40, 40))
+    for run, mesh, interval, n in (("a", tri, 0.01, 6), ("b", quad, 0.025, 3)):
+        lines = []
+        for k in range(n):
+            cx = 0.4 + interval * k
+            if run == "a":
+                phi = np.tanh((0.2 - np.hypot(tri.points[:, 0] - cx, tri.points[:, 1] - 0.5)) / 0.02)
+                to_meshio(tri, point_data={"phi": phi}).write(tmp_path / f"a_{k}.vtu")
+            else:
+                ij = np.minimum((quad.cell_centroids[:, :2] * 40).astype(int), 39)
+                alpha = circle_fraction(40, (cx, 0.5), 0.2)[ij[:, 0], ij[:, 1]]
+                to_meshio(quad, cell_data={"alpha": alpha}).write(tmp_path / f"b_{k}.vtu")
+            lines.append(f"{interval * k:.4g},{run}_{k}.vtu")
+        (tmp_path / f"{run}.steps").write_text("\n".join(lines) + "\n")
+    return tmp_path
+
+
+def test_runs_without_times_are_said_to_pair_by_step_number(tmp_path):
+    folder = _drop_written_at_two_intervals(tmp_path)
+    ref = folder / "ref.csv"  # the disc area pi r^2 = 0.125664 (exact geometry), at a time and as an extreme
+    ref.write_text("quantity,time,value,tolerance\nphase_volume,0.05,0.125664,0.004\n"
+                   "max:phase_volume,,0.125664,0.004\n")
+    with pytest.warns(UserWarning, match="neither run stores times: steps paired by number") as caught:
+        numbered = compare_runs(RunSpec(str(folder / "a_*.vtu"), "phi", (-1, 1), label="pf"),
+                                RunSpec(str(folder / "b_*.vtu"), "alpha", label="vof"), out=folder / "n",
+                                reference_table=str(ref))
+    said = next(str(w.message) for w in caught if "neither run" in str(w.message))
+    assert "pf has 6 steps, vof 3" in said and "give `time,path` listings with the output times" in said
+    assert numbered.paired_by == "step number" and numbered.warnings == [said]
+    manifest = json.loads((folder / "n" / "manifest.json").read_text())
+    assert manifest["paired_by"] == "step number" and manifest["comparison_warnings"] == [said]
+    report = (folder / "n" / "report.html").read_text()
+    assert "neither run stores times: steps paired by number" in report and "paired by step number" in report
+    # step 2 of A (t = 0.02) against step 2 of B (t = 0.05): the drop travelled 0.03 between them (analytic),
+    # read as a shape difference (measured 0.0325; less half a cell of B, 1/80: our threshold)
+    assert numbered.comparison["hausdorff"].iloc[2] > 0.03 - 1 / 80
+    # a check at a time reads a step number as the time: not applicable; an extreme's value stands
+    checks = numbered.reference_checks.set_index("quantity")
+    assert checks.loc["phase_volume", "verdict"] == "not_applicable" and "stores no times" in \
+        checks.loc["phase_volume", "note"]
+    assert "stores no times" not in str(checks.loc["max:phase_volume", "note"])  # (its own reason: at an end)
+    # with the output times given, t = 0 and t = 0.05 pair: the same drop at the same time (analytic),
+    # its interfaces within a cell of run B, 1/40 (measured 0.012 and 0.011), and no note
+    timed = compare_runs(RunSpec(str(folder / "a.steps"), "phi", (-1, 1), label="pf"),
+                         RunSpec(str(folder / "b.steps"), "alpha", label="vof"))
+    assert timed.paired_by == "time" and not timed.warnings
+    assert list(timed.comparison["time"]) == [0.0, 0.05] and (timed.comparison["hausdorff"] < 1 / 40).all()

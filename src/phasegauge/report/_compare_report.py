@@ -15,7 +15,13 @@ from ._html import Page
 from ._drawing import save_figures
 from ._measure_report import CAUTION, kind_words, manifest, verdict_lines
 
-__all__ = ["write_compare_report", "compare_figures"]
+__all__ = ["write_compare_report", "compare_figures", "steps_file_name"]
+
+
+def steps_file_name(label: str) -> str:
+    """The steps table of the run labelled ``label``: ``steps_<label>.csv``, every run of other characters
+    than letters, digits, ``_``, ``.`` and ``-`` in the label made one ``_`` (a label of any text: one file)."""
+    return "steps_{}.csv".format(re.sub(r"[^A-Za-z0-9_.-]+", "_", label))
 
 
 def compare_figures(result, *, overlays, level: float, time_origin: str | None = None) -> list:
@@ -92,7 +98,7 @@ def write_compare_report(out, result, *, specs, overlays, inputs: list, version:
             atomic_write_csv(os.path.join(out, name), frame)
             written.append(name)
     for label, res in zip(result.labels, (result.first, result.second)):
-        name = "steps_{}.csv".format(re.sub(r"[^A-Za-z0-9_.-]+", "_", label))  # a label of any text: one file
+        name = steps_file_name(label)
         atomic_write_csv(os.path.join(out, name), res.steps)
         written.append(name)
     first_origin = (time_origins or {}).get(result.labels[0])
@@ -118,7 +124,9 @@ def write_compare_report(out, result, *, specs, overlays, inputs: list, version:
                          for k, v in result.unpaired.items())
     origins = {k: v for k, v in (time_origins or {}).items() if v}
     said = ("; times from " + ", ".join(f"{k}: {v}" for k, v in origins.items())) if origins else ""
-    page.paragraph(f"{len(result.pairs)} paired times; {unpaired}{said}.")
+    numbered = getattr(result, "paired_by", "") == "step number"
+    by = " (paired by step number: neither run stores times)" if numbered else ""
+    page.paragraph(f"{len(result.pairs)} paired times{by}; {unpaired}{said}.")
     if len(result.reference_checks):
         page.heading("Published and reference values")
         checks = result.reference_checks
@@ -164,7 +172,9 @@ def write_compare_report(out, result, *, specs, overlays, inputs: list, version:
                                                   for label, run in zip(result.labels, (result.first, result.second))},
                               "interface_kind": {label: _kind(run)[0] for label, run in
                                                  zip(result.labels, (result.first, result.second))},
-                              "time_origin": dict(time_origins or {})},
+                              "time_origin": dict(time_origins or {}),
+                              "paired_by": getattr(result, "paired_by", "time"),
+                              "comparison_warnings": list(getattr(result, "warnings", []))},
                       outputs=written, timings={"total_seconds": round(time.time() - started, 3)})
     atomic_write_json(os.path.join(out, "manifest.json"), record)
     mark_complete(out)
@@ -248,7 +258,8 @@ def _offset_findings(result) -> list:
 def _compare_findings(result) -> list:
     """Each run's flags (named by its label), a note when the interfaces are of different kinds, and
     every reference check that failed."""
-    found = _domain_findings(result)
+    found = list(getattr(result, "warnings", []))  # the comparison's own (steps paired by number)
+    found += _domain_findings(result)
     found += [f"{label}: {flag}" for label, run in zip(result.labels, (result.first, result.second))
               for flag in run.flags]
     kinds = [_kind(run) for run in (result.first, result.second)]

@@ -175,7 +175,7 @@ def _predicted_pairs(series_a, series_b, time_tolerance, chosen=(None, None)):
     return steps, (steps[0][0], steps[1][0])
 
 
-def paired_shapes(pairs, results_a, results_b, plan: SamplingPlan, *, series, specs, level: float,
+def paired_shapes(pairs, results_a, results_b, plan: SamplingPlan, *, series, options, level: float,
                   spacing=None, overlay_pairs=()) -> tuple[list, list]:
     """Shape metrics of every paired step, and the overlay arrays of the pairs ``overlay_pairs``.
 
@@ -188,7 +188,9 @@ def paired_shapes(pairs, results_a, results_b, plan: SamplingPlan, *, series, sp
     plan : SamplingPlan
     series : pair of Series
         Opened on the two runs, for pairs read again.
-    specs : pair of RunSpec
+    options : pair of MeasureOptions
+        Each run's options as it was measured: a pair read again builds its indicator with them
+        (field, range, phase, field location, level set), as the measure workers did.
     level : float
     spacing : float, optional
         Spacing of grids built for pairs read again.
@@ -211,7 +213,8 @@ def paired_shapes(pairs, results_a, results_b, plan: SamplingPlan, *, series, sp
         if fa is not None and fb is not None and (fa.signature, fb.signature) == tuple(plan.signatures):
             grid, values_a, values_b, names = plan.grid, fa.values, fb.values, plan.axis_names
         else:
-            grid, values_a, values_b, names = _read_pair(row, grids, series=series, specs=specs, spacing=spacing)
+            grid, values_a, values_b, names = _read_pair(row, grids, series=series, options=options,
+                                                         spacing=spacing)
         shape = cmp.shape_comparison_on_grid(values_a, values_b, grid, level=level)
         rows.append({"step_a": int(row.step_a), "step_b": int(row.step_b),
                      **{name: value for name, value in shape.items() if np.isscalar(value)}})
@@ -221,17 +224,18 @@ def paired_shapes(pairs, results_a, results_b, plan: SamplingPlan, *, series, sp
     return rows, overlays
 
 
-def _read_pair(row, grids: dict, *, series, specs, spacing):
-    """Read both steps of a pair and sample them (a pair the measure workers did not sample)."""
+def _read_pair(row, grids: dict, *, series, options, spacing):
+    """Read both steps of a pair and sample them (a pair the measure workers did not sample), each
+    step's indicator built from its run's measure options as :func:`.step.analyse_step` builds it."""
     from ..model.indicator import make_indicator
     from .step import flatten_step
 
     fields = []
     for run, step in ((0, int(row.step_a)), (1, int(row.step_b))):
-        spec = specs[run]
-        s, _ = flatten_step(series[run].read(step), None)  # as measure reads it: a slab as 2D
-        c = make_indicator(s.mesh, s.fields, spec.field, range=spec.range, phase=spec.phase,
-                           where=s.info.where, warn=False, field_location=spec.field_location)
+        o = options[run]
+        s, _ = flatten_step(series[run].read(step), o)  # as measure reads it: a slab as 2D
+        c = make_indicator(s.mesh, s.fields, o.field, range=o.range, phase=o.phase, where=s.info.where,
+                           warn=False, field_location=o.field_location, level_set=o.level_set)
         fields.append((s.mesh, c.point))
     (mesh_a, ca), (mesh_b, cb) = fields
     key = (mesh_a.signature, mesh_b.signature)

@@ -17,7 +17,7 @@ from __future__ import annotations
 import os
 import time
 import warnings
-from dataclasses import dataclass
+from dataclasses import dataclass, field
 from typing import TYPE_CHECKING
 
 import numpy as np
@@ -61,7 +61,8 @@ class RunSpec:
 
 @dataclass
 class CompareResult:
-    """Tables of a comparison (pandas DataFrames)."""
+    """Tables of a comparison (pandas DataFrames); ``paired_by`` is ``'time'``, or ``'step number'`` when
+    neither run stores times, and ``warnings`` the comparison's own warnings (as given)."""
 
     comparison: object
     pairs: object
@@ -71,6 +72,8 @@ class CompareResult:
     first: object
     second: object
     labels: tuple
+    paired_by: str = "time"
+    warnings: list = field(default_factory=list)
 
 
 def compare_runs(first: RunSpec, second: RunSpec, *, out=None, overwrite: bool = False, level: float = 0.5,
@@ -144,7 +147,7 @@ def _compare_runs(first, second, *, out, overwrite, level, time_tolerance, spaci
 
         check_threads(threads)
     started = time.time()
-    labels = (first.label or "first", second.label or "second")
+    labels = _distinct_labels(first, second)
     if rising_bubble and first.velocity is None:
         warnings.warn(PhasegaugeWarning("the rising-bubble check reads the bubble's rise velocity from the first "
                                         "run's velocity field, which was not given, so its velocity checks read "
@@ -195,6 +198,10 @@ def _compare_runs(first, second, *, out, overwrite, level, time_tolerance, spaci
     res_a, res_b = runs
     series = open_both()  # for pairs read again and the list of input files
     try:
+        from ._report_data import measured_time_origin
+
+        origins = {label: measured_time_origin(s, res.results) for label, s, res in zip(labels, series, runs)}
+        told = _numbered_pairing(origins, runs, labels)
         times_a = pd.Series(res_a.steps["time"].to_numpy(), index=res_a.steps["step"].to_numpy())
         times_b = pd.Series(res_b.steps["time"].to_numpy(), index=res_b.steps["step"].to_numpy())
         pairs, unpaired_a, unpaired_b = cmp.pair_times(times_a, times_b, tolerance=time_tolerance)
@@ -204,7 +211,8 @@ def _compare_runs(first, second, *, out, overwrite, level, time_tolerance, spaci
         n_pairs = len(pairs)
         keep = set(np.linspace(0, n_pairs - 1, min(snapshots, n_pairs)).round().astype(int)) if n_pairs else set()
         shapes, overlays = paired_shapes(pairs, res_a.results, res_b.results, plan, series=series,
-                                         specs=(first, second), level=level, spacing=spacing, overlay_pairs=keep)
+                                         options=(res_a.options, res_b.options), level=level, spacing=spacing,
+                                         overlay_pairs=keep)
     finally:
         for s in series:
             s.close()
@@ -222,16 +230,18 @@ def _compare_runs(first, second, *, out, overwrite, level, time_tolerance, spaci
         except OptionError as err:  # named by the file
             raise OptionError(err.what, where=os.fspath(reference_table), fix=err.fix) from None
     reference_checks = pd.concat(checks, ignore_index=True) if checks else pd.DataFrame()
+    if told and len(reference_checks):
+        reference_checks = _checks_without_times(reference_checks)
     result = CompareResult(comparison=comparison, pairs=pairs,
                            unpaired={labels[0]: list(unpaired_a), labels[1]: list(unpaired_b)},
                            droplet_statistics=drop_stats, reference_checks=reference_checks,
-                           first=res_a, second=res_b, labels=labels)
+                           first=res_a, second=res_b, labels=labels, paired_by="step number" if told else "time",
+                           warnings=told)
     if out is not None:
         from ..report._compare_report import write_compare_report
-        from ._report_data import measured_time_origin, package_version, series_input_files
+        from ._report_data import package_version, series_input_files
 
         inputs = [f for s, res in zip(series, runs) for f in series_input_files(s, res.results)]
-        origins = {label: measured_time_origin(s, res.results) for label, s, res in zip(labels, series, runs)}
         write_compare_report(out, result, specs=(first, second), overlays=overlays, inputs=inputs,
                              version=package_version(), started=started, level=level, time_origins=origins)
     return result
@@ -303,6 +313,22 @@ def _checked_reference_table(path):
     return table
 
 
+def _distinct_labels(first: RunSpec, second: RunSpec) -> tuple:
+    """The two runs' labels ('first' and 'second' where not given); labels that are equal, or that name
+    the same steps table, are refused: one run's table and its entries in the manifest and report,
+    which are keyed by label, would overwrite the other's."""
+    from ..report._compare_report import steps_file_name
+
+    labels = (first.label or "first", second.label or "second")
+    if steps_file_name(labels[0]) == steps_file_name(labels[1]):
+        same = "are the same" if labels[0] == labels[1] else f"both name {steps_file_name(labels[0])}"
+        raise OptionError(f"the runs' labels {labels[0]!r} and {labels[1]!r} {same}: one run's steps table and its "
+                          "entries in the manifest and report would overwrite the other's",
+                          fix="give the runs distinct labels (--label-a, --label-b; recipe: label in [first] and "
+                              "[second]) that differ in a letter, digit, '_', '.' or '-'")
+    return labels
+
+
 def _chosen(spec: RunSpec, series, flag: str) -> list:
     """The steps of one run a comparison measures (its ``steps``), their times checked as measure
     checks them; an empty choice named by the run's own option."""
@@ -343,6 +369,35 @@ def _near_misses(times_a, times_b, unpaired_a, unpaired_b) -> None:
             f"of the second (up to {near.max():.3g} apart; the default tolerance is a quarter of the interval, "
             f"{PAIR_SHARE * interval:.3g}): if they were written for the same times by a long solver step, "
             f"pair them with --time-tolerance {1.01 * near.max():.3g}"), stacklevel=4)
+
+
+def _numbered_pairing(origins: dict, runs, labels) -> list:
+    """Where neither run stores times (both measured steps' times are their numbers 0, 1, 2 ...): the
+    warning, given here and returned (for the report and manifest), that the steps are paired by number;
+    else an empty list. Two runs of other step counts are named with them: over one span they were
+    written at other intervals, so their pairs compare other moments."""
+    if not all(origin == "index" for origin in origins.values()):
+        return []
+    counts = [len(res.steps) for res in runs]
+    said = ("neither run stores times: steps paired by number, which compares the same moments only if both runs "
+            "wrote at the same interval from the same start")
+    if counts[0] != counts[1]:
+        said += f" ({labels[0]} has {counts[0]} steps, {labels[1]} {counts[1]}: over one span, other intervals)"
+    said += "; give `time,path` listings with the output times"
+    warnings.warn(PhasegaugeWarning(said), stacklevel=4)
+    return [said]
+
+
+def _checks_without_times(checks):
+    """Reference checks of a first run that stores no times: a check at a time, and the time of an extreme,
+    read step numbers as times, so they read not_applicable (an extreme's value, ``min:``/``max:``, stands)."""
+    checks = checks.copy()
+    timed = ~checks["quantity"].astype(str).str.startswith(("min:", "max:"))
+    checks.loc[timed, "value"] = np.nan
+    checks.loc[timed, "verdict"] = "not_applicable"
+    checks.loc[timed, "note"] = ("the run stores no times (its steps are numbered 0, 1, 2 ...), so a time is a step "
+                                 "number: give a 'time,path' listing with the output times")
+    return checks
 
 
 def _one_time_axis(both, chosen) -> None:
