@@ -71,6 +71,7 @@ class CompareResult:
     first: object
     second: object
     labels: tuple
+    band_excess: dict | None = None  # a diffuse run against a sharp one: its band's volume (run._compare_kinds)
 
 
 def compare_runs(first: RunSpec, second: RunSpec, *, out=None, overwrite: bool = False, level: float = 0.5,
@@ -131,6 +132,7 @@ def _compare_runs(first, second, *, out, overwrite, level, time_tolerance, spaci
     from ..analysis import compare as cmp
     from ..analysis import references
     from ..io import Series
+    from ._compare_kinds import band_excess
     from ._compare_periodic import check_one_period, normalize_periodic
     from ._compare_steps import paired_shapes, plan_sampling
     from .measure import measure
@@ -232,7 +234,8 @@ def _compare_runs(first, second, *, out, overwrite, level, time_tolerance, spaci
     result = CompareResult(comparison=comparison, pairs=pairs,
                            unpaired={labels[0]: list(unpaired_a), labels[1]: list(unpaired_b)},
                            droplet_statistics=drop_stats, reference_checks=reference_checks,
-                           first=res_a, second=res_b, labels=labels)
+                           first=res_a, second=res_b, labels=labels,
+                           band_excess=band_excess(res_a, res_b, pairs, labels, periodic))
     if out is not None:
         from ..report._compare_report import write_compare_report
         from ._report_data import measured_time_origin, package_version, series_input_files
