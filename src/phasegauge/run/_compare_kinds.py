@@ -83,5 +83,6 @@ def _not_stated(out: dict, drops, outline, periodic) -> str:
         near = ((drops[f"bbox_min_{name}"] - lo[a] < WALL_SCALES * s)
                 | (hi[a] - drops[f"bbox_max_{name}"] < WALL_SCALES * s))
         if near.any():
-            return f"a droplet of the measured phase reaches within {WALL_SCALES:g} band scales of a wall normal to {name}"
+            return (f"a droplet of the measured phase reaches within {WALL_SCALES:g} band scales of a wall "
+                    f"normal to {name}")
     return ""
