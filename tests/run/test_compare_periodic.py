@@ -60,6 +60,21 @@ def test_periodic_interface_distances_wrap_on_the_grid():
     assert plain["hausdorff"] > 0.5
 
 
+def test_periodic_interface_distances_wrap_in_3d():
+    # analytic: spheres of radius R whose centres lie OFFSET apart along x (only the first crossing the
+    # periodic x boundary) are OFFSET apart in the Hausdorff distance
+    grid = SamplingGrid([(0, 1), (0, 1), (0, 1)], (80, 80, 80))
+    points = grid.points()
+    values = []
+    for x in (0.185, 0.185 + OFFSET):
+        r = np.hypot(_periodic_distance(points, (x, 0.5)), points[:, 2] - 0.5)
+        values.append((0.5 * (1 - np.tanh((r - R) / 0.02))).reshape(grid.shape))
+    wrapped = shape_comparison_on_grid(*values, grid, periodic=("x",))
+    # our threshold: half a grid spacing (3D queries lie one spacing apart)
+    assert wrapped["hausdorff"] == pytest.approx(OFFSET, abs=0.5 / 80)
+    assert shape_comparison_on_grid(*values, grid)["hausdorff"] > 0.5
+
+
 def test_a_drop_across_the_periodic_boundary_is_one_drop_in_both_runs(tmp_path):
     a, b = _crossing_runs(tmp_path)
     result = compare_runs(*_specs(a, b), out=tmp_path / "out", periodic=("x",))

@@ -86,7 +86,9 @@ def interface_elements(values: np.ndarray, grid: SamplingGrid, level: float = 0.
         return grid.to_physical(segments.reshape(-1, 2)).reshape(-1, 2, 2)
     from skimage.measure import marching_cubes
 
-    # a cube is used only when all eight corners are valid (the mask acts on a cube's first corner)
+    # a cube is used only when all eight corners are valid; scikit-image reads a cube's mask at its far
+    # corner (i+1, j+1, k+1; our check on scikit-image 0.26: an invalid sample drops only the cube it ends),
+    # so the all-valid cubes, keyed by their first corner, are handed over one sample on
     cube = mask.copy()
     for shift in ((1, 0, 0), (0, 1, 0), (0, 0, 1), (1, 1, 0), (1, 0, 1), (0, 1, 1), (1, 1, 1)):
         shifted = np.zeros_like(mask)
@@ -96,7 +98,9 @@ def interface_elements(values: np.ndarray, grid: SamplingGrid, level: float = 0.
     if not np.any(cube):
         return empty
     try:
-        verts, faces, _, _ = marching_cubes(np.where(mask, v, level), level, mask=cube)
+        keyed = np.zeros_like(cube)
+        keyed[1:, 1:, 1:] = cube[:-1, :-1, :-1]
+        verts, faces, _, _ = marching_cubes(np.where(mask, v, level), level, mask=keyed)
     except (ValueError, RuntimeError):  # no crossing inside the valid cubes
         return empty
     if len(faces) == 0:
@@ -223,9 +227,9 @@ def shape_comparison_on_grid(values_a: np.ndarray, values_b: np.ndarray, grid: S
 
 
 def _periodic_box(grid: SamplingGrid, periodic, axis_names):
-    """(origin, box) of a toroidal ``cKDTree`` for the grid: the periods of the periodic axes, and
-    three extents along the others (points shifted one extent in, so no distance wraps there); None
-    with no periodic axis."""
+    """(origin, sizes, wraps) of a toroidal ``cKDTree`` for the grid: the periods of the periodic axes,
+    and three extents along the others (points shifted one extent in, so no distance wraps there), and
+    which axes wrap; None with no periodic axis."""
     names = tuple(str(n).lower() for n in axis_names)[: grid.dimension]
     wanted = tuple(str(a).lower() for a in (periodic or ()))
     unknown = [a for a in wanted if a not in names]
@@ -237,7 +241,20 @@ def _periodic_box(grid: SamplingGrid, periodic, axis_names):
     extent = np.array([hi - lo for lo, hi in grid.bounds])
     wraps = np.array([n in wanted for n in names])
     origin = grid.lower - np.where(wraps, 0.0, extent)
-    return origin, np.where(wraps, extent, 3.0 * extent)
+    return origin, np.where(wraps, extent, 3.0 * extent), wraps
+
+
+def _wrapped(a, b, valid, grid: SamplingGrid, wraps):
+    """The sampled fields with their first layer repeated after the last along each wrapped axis, and
+    the grid one spacing longer there (its points beyond the period wrap in the distance queries)."""
+    bounds, shape = [list(p) for p in grid.bounds], list(grid.shape)
+    for k in np.flatnonzero(wraps):
+        a, b = (np.concatenate([f, np.take(f, [0], axis=k)], axis=k) for f in (a, b))
+        if valid is not None:
+            valid = np.concatenate([valid, np.take(valid, [0], axis=k)], axis=k)
+        bounds[k][1] += grid.spacing[k]
+        shape[k] += 1
+    return a, b, valid, SamplingGrid(tuple(map(tuple, bounds)), tuple(shape))
 
 
 def interface_distances(a: np.ndarray, b: np.ndarray, grid: SamplingGrid, *, level: float = 0.5,
@@ -247,7 +264,8 @@ def interface_distances(a: np.ndarray, b: np.ndarray, grid: SamplingGrid, *, lev
 
     Along the ``periodic`` axes (names among ``axis_names``, the grid's axes) a distance is the
     nearest image's, the period being the grid's extent there: a drop that crosses a periodic
-    boundary in one run and not in the other is measured through the boundary, not across the box.
+    boundary in one run and not in the other is measured through the boundary, not across the box;
+    the interfaces are joined across the periodic planes (their sizes include the piece there).
 
     Returns
     -------
@@ -261,9 +279,11 @@ def interface_distances(a: np.ndarray, b: np.ndarray, grid: SamplingGrid, *, lev
     """
     densify = _normalize_densify(densify, grid.dimension)
     box = _periodic_box(grid, periodic, axis_names)
+    h = float(grid.spacing.min())
+    if box is not None:  # the contours joined across the periodic planes: the first layer again after the last
+        a, b, valid, grid = _wrapped(a, b, valid, grid, box[2])
     ea = interface_elements(a, grid, level, valid=valid)
     eb = interface_elements(b, grid, level, valid=valid)
-    h = float(grid.spacing.min())
     out = {"hausdorff": np.nan, "hausdorff_ab": np.nan, "hausdorff_ba": np.nan,
            "hausdorff_95": np.nan, "mean_distance": np.nan,
            "interface_size_a": _measure(ea), "interface_size_b": _measure(eb)}
@@ -293,7 +313,7 @@ def _measure(elements: np.ndarray) -> float:
 def _distances_to(source: np.ndarray, target: np.ndarray, h: float, densify: float, box=None):
     """Distance from points densified on ``source`` to the nearest point densified on ``target``.
 
-    ``box``: (origin, sizes) of a toroidal tree (:func:`_periodic_box`), or None for plain distances.
+    ``box``: (origin, sizes, wraps) of a toroidal tree (:func:`_periodic_box`), or None for plain distances.
 
     Two passes keep the nearest-neighbour queries cheap: every query against
     the target densified at ``_COARSE`` grid spacings, then the queries closer
@@ -314,7 +334,7 @@ def _distances_to(source: np.ndarray, target: np.ndarray, h: float, densify: flo
         def placed(points):
             return points
     else:  # scipy's toroidal tree: coordinates wrapped into [0, size) along each axis
-        origin, sizes = box
+        origin, sizes = box[:2]
 
         def tree(points):
             return cKDTree(placed(points), boxsize=sizes)
