@@ -484,6 +484,9 @@ def samples(directory, only, overwrite, list_names):
 @click.option("--steps-a", "steps_a", default=None,
               help="The first run's steps compared, START:STOP:STRIDE (as measure's --steps: one run of a restart).")
 @click.option("--steps-b", "steps_b", default=None, help="The second run's steps compared, START:STOP:STRIDE.")
+@click.option("--periodic", default="",
+              help="Periodic axes of both runs, e.g. x,y (as measure's --periodic): droplets join across them and "
+                   "the interface distances wrap there.")
 @click.option("--out", "-o", "out", required=True, help="Output folder.")
 @click.option("--overwrite", is_flag=True, help="Replace an existing output folder.")
 @click.option("--workers", "-j", type=int, default=1, show_default=True, help="Local worker processes.")
@@ -493,8 +496,8 @@ def samples(directory, only, overwrite, list_names):
 @click.option("--quiet", "-q", is_flag=True, help="No progress display.")
 def compare(path_a, path_b, field_a, field_b, range_a, range_b, phase_a, phase_b, velocity_a, velocity_b,
             label_a, label_b, level, time_tolerance, spacing, rising_bubble, reference_table, field_location,
-            sort_by_time, level_set_a, level_set_b, interface_kind_a, interface_kind_b, steps_a, steps_b, out,
-            overwrite, workers, threads, quiet):
+            sort_by_time, level_set_a, level_set_b, interface_kind_a, interface_kind_b, steps_a, steps_b, periodic,
+            out, overwrite, workers, threads, quiet):
     """Compare two runs of the same case (for example diffuse versus sharp interface)."""
     from .errors import OptionError
     from .run.compare import RunSpec, compare_runs
@@ -518,7 +521,8 @@ def compare(path_a, path_b, field_a, field_b, range_a, range_b, phase_a, phase_b
         result = compare_runs(first, second, out=out, overwrite=overwrite, level=level,
                               time_tolerance=time_tolerance, spacing=spacing, reference_table=reference_table,
                               rising_bubble=rising_bubble, workers=workers, threads=threads,
-                              progress=None if not quiet else False)
+                              progress=None if not quiet else False,
+                              periodic=tuple(a.strip() for a in periodic.split(",") if a.strip()))
     if not quiet:
         click.echo(f"compared {len(result.pairs)} paired times; report: {os.path.join(out, 'report.html')}")
 

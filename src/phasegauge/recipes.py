@@ -74,7 +74,7 @@ per run (``path``, ``parameter``, optional ``label``); see :mod:`phasegauge.run.
 A compare recipe has ``[first]`` and ``[second]`` tables (each like ``[input]``,
 with an optional ``label``), an optional ``[compare]`` table
 (``time_tolerance``, ``spacing``, ``level``, ``reference_table``,
-``rising_bubble``), ``[run]`` and ``[output]``.
+``rising_bubble``, ``periodic``: both runs' periodic axes), ``[run]`` and ``[output]``.
 
 Unknown tables and keys are refused with the nearest known name suggested; an old
 key name (:data:`OLD_KEYS`) is read as its new one, with an :class:`~phasegauge.errors.OldNameWarning`.
@@ -125,7 +125,7 @@ COMPARE_SCHEMA = {
     "first": {**_INPUT, "interface_kind": str, "steps": str},
     "second": {**_INPUT, "interface_kind": str, "steps": str},
     "compare": {"time_tolerance": (int, float), "spacing": (int, float), "level": (int, float),
-                "reference_table": str, "rising_bubble": bool},
+                "reference_table": str, "rising_bubble": bool, "periodic": list},
     "run": {"workers": int, "threads": int, "strict": bool},
     "output": {"folder": str, "overwrite": bool},
 }
@@ -201,8 +201,11 @@ def load_recipe(path) -> dict:
             raise OptionError(f"[{table}] must be a table", where=path, fix=f"write it as [{table}] with keys below")
         for key, value in entries.items():
             if key not in schema[table]:
-                raise OptionError(f"unknown key '{key}' in [{table}]; {_suggest(key, schema[table])}",
-                                  where=path, fix="see the recipe format in the README")
+                home = [t for t in schema if t != table and key in schema[t]]
+                raise OptionError(f"unknown key '{key}' in [{table}]; "
+                                  + (f"it belongs in [{home[0]}]" if home else _suggest(key, schema[table])),
+                                  where=path, fix=f"move {key} = ... under [{home[0]}]" if home
+                                  else "see the recipe format in the README")
             expected = schema[table][key]
             if isinstance(value, bool) and expected in ((int, float), int):
                 ok = False
@@ -333,6 +336,11 @@ def _check_values(data: dict, kind: str, path: str) -> None:
         if key in compare and not compare[key] > 0:
             raise OptionError(f"[compare] {key} must be positive, found {compare[key]}", where=path,
                               fix="leave it out for the default")
+    if "periodic" in compare:
+        try:
+            MeasureOptions(field="c", periodic=tuple(compare["periodic"]))
+        except OptionError as err:
+            raise refuse("compare", "periodic", err) from None
     if "level" in compare and not 0 < compare["level"] < 1:
         raise OptionError(f"[compare] level must lie strictly between 0 and 1, found {compare['level']}",
                           where=path, fix="the interface is usually at level 0.5")

@@ -244,3 +244,18 @@ def test_concentric_spheres_3d():
     assert res["mismatch_volume"] == pytest.approx(4 / 3 * np.pi * (r1 ** 3 - r2 ** 3), rel=0.05)
     # the marching-cubes area of a sphere slightly underestimates 4 pi r^2 (scikit-image's own test)
     assert res["interface_size_a"] == pytest.approx(4 * np.pi * r1 ** 2, rel=0.03)
+
+
+@pytest.mark.parametrize("plane", [0.08, 0.5, 0.92])
+def test_marching_cubes_keeps_the_cubes_of_the_last_layer(plane):
+    # analytic: the field c = x on a 10^3 grid of the unit cube crosses c = plane on the plane x = plane,
+    # whose area over the samples' square (0.05 to 0.95 in y and z) is 0.9^2; at 0.92 it lies in the
+    # last layer of cubes, which the mask handed to scikit-image's marching cubes used to leave out
+    from phasegauge.analysis.compare import interface_elements
+
+    grid = SamplingGrid([(0, 1)] * 3, (10, 10, 10))
+    c = grid.points()[:, 0].reshape(grid.shape)
+    tri = interface_elements(c, grid, plane)
+    area = 0.5 * np.linalg.norm(np.cross(tri[:, 1] - tri[:, 0], tri[:, 2] - tri[:, 0]), axis=1).sum()
+    assert area == pytest.approx(0.81, rel=1e-9)
+    assert np.allclose(tri[..., 0], plane)

@@ -23,6 +23,7 @@ import numpy as np
 
 from ..errors import OptionError
 from ..model._statistics import weighted_quantile
+from ..model.axes import AXIS_NAMES
 from ..model.mesh import Mesh
 from ._resample import SamplingGrid, check_same_space, common_grid, resample_to_grid
 
@@ -85,7 +86,9 @@ def interface_elements(values: np.ndarray, grid: SamplingGrid, level: float = 0.
         return grid.to_physical(segments.reshape(-1, 2)).reshape(-1, 2, 2)
     from skimage.measure import marching_cubes
 
-    # a cube is used only when all eight corners are valid (the mask acts on a cube's first corner)
+    # a cube is used only when all eight corners are valid; scikit-image reads a cube's mask at its far
+    # corner (i+1, j+1, k+1; our check on scikit-image 0.26: an invalid sample drops only the cube it ends),
+    # so the all-valid cubes, keyed by their first corner, are handed over one sample on
     cube = mask.copy()
     for shift in ((1, 0, 0), (0, 1, 0), (0, 0, 1), (1, 1, 0), (1, 0, 1), (0, 1, 1), (1, 1, 1)):
         shifted = np.zeros_like(mask)
@@ -95,7 +98,9 @@ def interface_elements(values: np.ndarray, grid: SamplingGrid, level: float = 0.
     if not np.any(cube):
         return empty
     try:
-        verts, faces, _, _ = marching_cubes(np.where(mask, v, level), level, mask=cube)
+        keyed = np.zeros_like(cube)
+        keyed[1:, 1:, 1:] = cube[:-1, :-1, :-1]
+        verts, faces, _, _ = marching_cubes(np.where(mask, v, level), level, mask=keyed)
     except (ValueError, RuntimeError):  # no crossing inside the valid cubes
         return empty
     if len(faces) == 0:
@@ -185,8 +190,14 @@ def _densify_triangles(tri: np.ndarray, target: float):
 
 
 def shape_comparison_on_grid(values_a: np.ndarray, values_b: np.ndarray, grid: SamplingGrid, *,
-                             level: float = 0.5, densify: float | None = None) -> dict:
-    """Shape metrics of two fields already sampled on ``grid`` (see :func:`shape_comparison`)."""
+                             level: float = 0.5, densify: float | None = None, periodic=(),
+                             axis_names=("x", "y", "z")) -> dict:
+    """Shape metrics of two fields already sampled on ``grid`` (see :func:`shape_comparison`).
+
+    ``periodic`` names the grid's periodic axes among ``axis_names`` (the names of the grid's axes,
+    as :func:`phasegauge.run._compare_steps.overlay_arrays` takes them): the interface distances
+    wrap there, the period being the grid's extent along the axis.
+    """
     a = np.asarray(values_a, dtype=np.float64)
     b = np.asarray(values_b, dtype=np.float64)
     if a.shape != grid.shape or b.shape != grid.shape:
@@ -210,13 +221,51 @@ def shape_comparison_on_grid(values_a: np.ndarray, values_b: np.ndarray, grid: S
         "grid_spacing": float(grid.spacing.max()),
         "grid_samples": int(grid.n_samples),
     }
-    result.update(interface_distances(a, b, grid, level=level, valid=valid, densify=densify))
+    result.update(interface_distances(a, b, grid, level=level, valid=valid, densify=densify, periodic=periodic,
+                                      axis_names=axis_names))
     return result
 
 
+def _periodic_box(grid: SamplingGrid, periodic, axis_names):
+    """(origin, sizes, wraps) of a toroidal ``cKDTree`` for the grid: the periods of the periodic axes,
+    and three extents along the others (points shifted one extent in, so no distance wraps there), and
+    which axes wrap; None with no periodic axis."""
+    names = tuple(str(n).lower() for n in axis_names)[: grid.dimension]
+    wanted = tuple(str(a).lower() for a in (periodic or ()))
+    unknown = [a for a in wanted if a not in names]
+    if unknown:
+        raise OptionError(f"periodic axes {unknown} are not axes of the sampling grid ({', '.join(names)})",
+                          fix="name only axes both runs span")
+    if not wanted:
+        return None
+    extent = np.array([hi - lo for lo, hi in grid.bounds])
+    wraps = np.array([n in wanted for n in names])
+    origin = grid.lower - np.where(wraps, 0.0, extent)
+    return origin, np.where(wraps, extent, 3.0 * extent), wraps
+
+
+def _wrapped(a, b, valid, grid: SamplingGrid, wraps):
+    """The sampled fields with their first layer repeated after the last along each wrapped axis, and
+    the grid one spacing longer there (its points beyond the period wrap in the distance queries)."""
+    bounds, shape = [list(p) for p in grid.bounds], list(grid.shape)
+    for k in np.flatnonzero(wraps):
+        a, b = (np.concatenate([f, np.take(f, [0], axis=k)], axis=k) for f in (a, b))
+        if valid is not None:
+            valid = np.concatenate([valid, np.take(valid, [0], axis=k)], axis=k)
+        bounds[k][1] += grid.spacing[k]
+        shape[k] += 1
+    return a, b, valid, SamplingGrid(tuple(map(tuple, bounds)), tuple(shape))
+
+
 def interface_distances(a: np.ndarray, b: np.ndarray, grid: SamplingGrid, *, level: float = 0.5,
-                        valid: np.ndarray | None = None, densify: float | None = None) -> dict:
+                        valid: np.ndarray | None = None, densify: float | None = None, periodic=(),
+                        axis_names=("x", "y", "z")) -> dict:
     """Distances between the interfaces ``a = level`` and ``b = level`` sampled on ``grid``.
+
+    Along the ``periodic`` axes (names among ``axis_names``, the grid's axes) a distance is the
+    nearest image's, the period being the grid's extent there: a drop that crosses a periodic
+    boundary in one run and not in the other is measured through the boundary, not across the box;
+    the interfaces are joined across the periodic planes (their sizes include the piece there).
 
     Returns
     -------
@@ -229,16 +278,19 @@ def interface_distances(a: np.ndarray, b: np.ndarray, grid: SamplingGrid, *, lev
         distances when either interface is missing.
     """
     densify = _normalize_densify(densify, grid.dimension)
+    box = _periodic_box(grid, periodic, axis_names)
+    h = float(grid.spacing.min())
+    if box is not None:  # the contours joined across the periodic planes: the first layer again after the last
+        a, b, valid, grid = _wrapped(a, b, valid, grid, box[2])
     ea = interface_elements(a, grid, level, valid=valid)
     eb = interface_elements(b, grid, level, valid=valid)
-    h = float(grid.spacing.min())
     out = {"hausdorff": np.nan, "hausdorff_ab": np.nan, "hausdorff_ba": np.nan,
            "hausdorff_95": np.nan, "mean_distance": np.nan,
            "interface_size_a": _measure(ea), "interface_size_b": _measure(eb)}
     if len(ea) == 0 or len(eb) == 0:
         return out
-    d_ab, w_a = _distances_to(ea, eb, h, densify)
-    d_ba, w_b = _distances_to(eb, ea, h, densify)
+    d_ab, w_a = _distances_to(ea, eb, h, densify, box)
+    d_ba, w_b = _distances_to(eb, ea, h, densify, box)
     d = np.concatenate([d_ab, d_ba])
     w = np.concatenate([w_a, w_b])
     out.update(hausdorff_ab=float(d_ab.max()), hausdorff_ba=float(d_ba.max()),
@@ -258,8 +310,10 @@ def _measure(elements: np.ndarray) -> float:
     return float(0.5 * np.linalg.norm(np.cross(e1, e2), axis=1).sum())
 
 
-def _distances_to(source: np.ndarray, target: np.ndarray, h: float, densify: float):
+def _distances_to(source: np.ndarray, target: np.ndarray, h: float, densify: float, box=None):
     """Distance from points densified on ``source`` to the nearest point densified on ``target``.
+
+    ``box``: (origin, sizes, wraps) of a toroidal tree (:func:`_periodic_box`), or None for plain distances.
 
     Two passes keep the nearest-neighbour queries cheap: every query against
     the target densified at ``_COARSE`` grid spacings, then the queries closer
@@ -273,19 +327,33 @@ def _distances_to(source: np.ndarray, target: np.ndarray, h: float, densify: flo
     # queries: in 3D at one grid spacing (their number grows as 1 / spacing^2); the largest
     # distance over the source is then off by at most half a spacing, in practice far less
     query_spacing = densify if source.shape[1] == 2 else max(densify, _QUERY_3D)
+    if box is None:
+        def tree(points):
+            return cKDTree(points)
+
+        def placed(points):
+            return points
+    else:  # scipy's toroidal tree: coordinates wrapped into [0, size) along each axis
+        origin, sizes = box[:2]
+
+        def tree(points):
+            return cKDTree(placed(points), boxsize=sizes)
+
+        def placed(points):
+            return np.mod(points - origin, sizes)
     query, weights = _densify(source, query_spacing * h)
     coarse = np.unique(_densify(target, max(_COARSE, densify) * h)[0], axis=0)
-    d, _ = cKDTree(coarse).query(query)
+    d, _ = tree(coarse).query(placed(query))
     close = d < _NEAR * h
     if densify < _COARSE and np.any(close):
         fine = np.unique(_densify(target, densify * h)[0], axis=0)
-        d_fine, _ = cKDTree(fine).query(query[close])
+        d_fine, _ = tree(fine).query(placed(query[close]))
         d[close] = np.minimum(d[close], d_fine)
     return d, weights
 
 
 def shape_comparison(mesh_a: Mesh, c_point_a, mesh_b: Mesh, c_point_b, *, level: float = 0.5,
-                     grid: SamplingGrid | None = None, densify: float | None = None) -> dict:
+                     grid: SamplingGrid | None = None, densify: float | None = None, periodic=()) -> dict:
     """Compare the phase shapes of two runs on one regular grid.
 
     Parameters
@@ -302,6 +370,9 @@ def shape_comparison(mesh_a: Mesh, c_point_a, mesh_b: Mesh, c_point_b, *, level:
     densify : float, optional
         Spacing of interface points as a fraction of the grid spacing;
         default 1/8 in 2D, 1/4 in 3D.
+    periodic : sequence of {'x', 'y', 'z'}
+        Periodic axes (as ``measure``'s ``periodic``): interface distances wrap there, the period
+        being the grid's extent (both runs' box along the axis).
 
     Returns
     -------
@@ -346,4 +417,5 @@ def shape_comparison(mesh_a: Mesh, c_point_a, mesh_b: Mesh, c_point_b, *, level:
         grid = common_grid(mesh_a, mesh_b)
     a = resample_to_grid(mesh_a, c_point_a, grid)
     b = resample_to_grid(mesh_b, c_point_b, grid)
-    return shape_comparison_on_grid(a, b, grid, level=level, densify=densify)
+    names = tuple(AXIS_NAMES[i] for i in mesh_a.plane_axes[:2]) if mesh_a.dimension == 2 else AXIS_NAMES
+    return shape_comparison_on_grid(a, b, grid, level=level, densify=densify, periodic=periodic, axis_names=names)

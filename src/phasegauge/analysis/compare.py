@@ -30,7 +30,7 @@ __all__ = [
     "pair_times", "interpolate_metrics", "compare_metrics", "compare_droplet_statistics",
     "SamplingGrid", "common_grid", "resample_to_grid",
     "shape_comparison", "shape_comparison_on_grid", "interface_points", "interface_elements",
-    "interface_distances", "PAIR_COLUMNS", "SHAPE_COLUMNS",
+    "interface_distances", "band_volume_excess", "PAIR_COLUMNS", "SHAPE_COLUMNS",
 ]
 
 #: columns of the pairs table
@@ -388,3 +388,36 @@ def compare_droplet_statistics(droplets_a: pd.DataFrame, droplets_b: pd.DataFram
                                                        for s in ("a", "b", "diff")] + \
         ["size_ks_statistic", "size_ks_pvalue", "size_ks_note"]
     return pd.DataFrame(rows, columns=columns)
+
+
+def band_volume_excess(scale: float, radii, dimension: int) -> float:
+    """Volume a logistic band adds to closed drops, beyond the sharp drops of the same contours.
+
+    Parameters
+    ----------
+    scale : float, in length units
+        The band's logistic scale s, c = 1 / (1 + exp((r - R) / s)) (``interface_eps``).
+    radii : array_like of float, in length units
+        The drops' radii (only their number counts in 2D).
+    dimension : {2, 3}
+
+    Returns
+    -------
+    float
+        ``int c dV`` minus the sharp volume: pi^3 s^2 / 3 per drop in 2D, whatever its shape (pi^2 s^2 / 6
+        times the curvature integral 2 pi of a closed curve), 4 pi^3 s^2 R / 3 per sphere of radius R in 3D
+        (exact up to terms of order exp(-R / s)); a bubble of the other phase takes as much away.
+
+    References
+    ----------
+    The Sommerfeld expansion of the Fermi-Dirac integral, int_0^inf r^n / (1 + exp((r - R) / s)) dr =
+    R^(n+1) / (n+1) + pi^2 s^2 n R^(n-1) / 6 + O(s^4 R^(n-3)) (Ashcroft & Mermin 1976, Solid State
+    Physics, eq. 2.70), with n = 1 (2D) and n = 2 (3D).
+    """
+    if dimension not in (2, 3):
+        raise OptionError(f"dimension must be 2 or 3, found {dimension!r}", fix="give the mesh's dimension")
+    r = np.asarray(radii, dtype=np.float64).ravel()
+    s2 = float(scale) ** 2
+    if dimension == 2:
+        return float(np.pi ** 3 * s2 / 3.0 * r.size)
+    return float(4.0 * np.pi ** 3 * s2 / 3.0 * r.sum())

@@ -262,23 +262,57 @@ def _compare_findings(result) -> list:
     found += _domain_findings(result)
     found += [f"{label}: {flag}" for label, run in zip(result.labels, (result.first, result.second))
               for flag in run.flags]
-    kinds = [_kind(run) for run in (result.first, result.second)]
-    if {kinds[0][0], kinds[1][0]} == {"diffuse", "sharp"}:
-        shown = "; ".join(f"{label} {_kind_said(run)}, {cells:.2g} cells across" for label, run, (_, cells) in
-                          zip(result.labels, (result.first, result.second), kinds))
-        present = [c for c in METHOD_COLUMNS if f"{c}_a" in result.comparison]
-        found.append(f"the interfaces are of different kinds ({shown}): {', '.join(present) or 'the widths'} measure "
-                     "each method's interface, so their differences compare the methods, not the flow; where the "
-                     "interface is curved the phase volumes differ too, at second order in the diffuse band's width "
-                     "(the band is not symmetric about a curved contour), and with them the diffuse run's droplet "
-                     "diameters and circularity (a circle reads about 1 + pi^2 eps^2 / (6 R^2) instead of 1: the "
-                     "rising-bubble check's circularity band is narrower than that on a coarse band)")
+    found += _kinds_note(result)
     checks = result.reference_checks
     if checks is not None and len(checks) and "verdict" in checks:
         for row in checks[checks["verdict"] == "fail"].itertuples(index=False):
             found.append(f"reference check fail: {row.quantity} = {row.value:.4g}, expected "
                          f"{row.reference_low:.4g} to {row.reference_high:.4g} ({row.source})")
     return found
+
+
+def _kinds_note(result) -> list:
+    """The note on a diffuse run against a sharp one (volume of fluid) or a level set: which columns
+    measure each method's interface, and the volume the diffuse band adds (``result.band_excess``)."""
+    runs = (result.first, result.second)
+    kinds = [_kind(run) for run in runs]
+    names = {kinds[0][0], kinds[1][0]}
+    if "diffuse" not in names or not names & {"sharp", "level set"}:
+        return []
+    shown = "; ".join(f"{label} {_kind_said(run)}" + (f", {cells:.2g} cells across" if np.isfinite(cells) else "")
+                      for label, run, (_, cells) in zip(result.labels, runs, kinds))
+    table = result.comparison
+    k = [kind for kind, _ in kinds].index("diffuse")
+    own, other = ("_a", "_b") if k == 0 else ("_b", "_a")
+    present = [c for c in METHOD_COLUMNS if f"{c}_a" in table and table[f"{c}{own}"].notna().any()]
+    band_only = [c for c in present if not table[f"{c}{other}"].notna().any()]
+    both = [c for c in present if c not in band_only]
+    parts = [f"{', '.join(both)} measure each method's interface, so their differences compare the methods, not "
+             "the flow"] if both else []
+    if band_only:
+        parts.append(f"{', '.join(band_only)} measure the diffuse run's band, which the {kinds[1 - k][0]} run does "
+                     "not have" + (" (its distance_error_* columns measure its own method)"
+                                   if kinds[1 - k][0] == "level set" else ""))
+    what = "; ".join(parts) or "the widths measure each method's interface, not the flow"
+    note = (f"the interfaces are of different kinds ({shown}): {what}; where the interface is curved the phase "
+            "volumes differ too, at second order in the diffuse band's width (the band is not symmetric about a "
+            "curved contour), and with them the diffuse run's droplet diameters and circularity (a circle reads "
+            "about 1 + pi^2 eps^2 / (6 R^2) instead of 1: the rising-bubble check's circularity band is narrower "
+            "than that on a coarse band)")
+    excess = getattr(result, "band_excess", None)
+    if excess:
+        rule = ("a logistic band of scale s (interface_eps) adds pi^3 s^2 / 3 to each closed drop in 2D, whatever "
+                "its shape, and 4 pi^3 s^2 R / 3 to a sphere of radius R in 3D (a bubble of the other phase loses "
+                "as much)")
+        when = f"at t = {excess['time']:.6g}" if np.isfinite(excess["time"]) else f"at step {excess['step']}"
+        gap = f"{excess['label']}'s phase volume minus {excess['other']}'s is {excess['observed']:.4g} {when}"
+        if np.isfinite(excess["expected"]):
+            shape = "" if excess["dimension"] == 2 else " taken as spheres of their equivalent diameters"
+            note += (f"; {gap}, and {rule}: {excess['expected']:.4g} for its {excess['drops']} droplet(s)"
+                     f"{shape}, s = {excess['scale']:.4g}")
+        else:
+            note += f"; {gap}; {rule} (not stated here: {excess['why']})"
+    return [note]
 
 
 def _compare_key_figures(result) -> list:

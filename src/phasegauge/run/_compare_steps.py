@@ -176,7 +176,7 @@ def _predicted_pairs(series_a, series_b, time_tolerance, chosen=(None, None)):
 
 
 def paired_shapes(pairs, results_a, results_b, plan: SamplingPlan, *, series, options, level: float,
-                  spacing=None, overlay_pairs=()) -> tuple[list, list]:
+                  spacing=None, overlay_pairs=(), periodic=()) -> tuple[list, list]:
     """Shape metrics of every paired step, and the overlay arrays of the pairs ``overlay_pairs``.
 
     Parameters
@@ -196,6 +196,8 @@ def paired_shapes(pairs, results_a, results_b, plan: SamplingPlan, *, series, op
         Spacing of grids built for pairs read again.
     overlay_pairs : collection of int
         Positions (in ``pairs``) of the pairs to draw.
+    periodic : tuple of str
+        The comparison's periodic axes: interface distances wrap there.
 
     Returns
     -------
@@ -215,7 +217,8 @@ def paired_shapes(pairs, results_a, results_b, plan: SamplingPlan, *, series, op
         else:
             grid, values_a, values_b, names = _read_pair(row, grids, series=series, options=options,
                                                          spacing=spacing)
-        shape = cmp.shape_comparison_on_grid(values_a, values_b, grid, level=level)
+        shape = cmp.shape_comparison_on_grid(values_a, values_b, grid, level=level, periodic=periodic,
+                                             axis_names=names)
         rows.append({"step_a": int(row.step_a), "step_b": int(row.step_b),
                      **{name: value for name, value in shape.items() if np.isscalar(value)}})
         if k in overlay_pairs:

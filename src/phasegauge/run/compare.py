@@ -74,12 +74,13 @@ class CompareResult:
     labels: tuple
     paired_by: str = "time"
     warnings: list = field(default_factory=list)
+    band_excess: dict | None = None  # a diffuse run against a sharp one: its band's volume (run._compare_kinds)
 
 
 def compare_runs(first: RunSpec, second: RunSpec, *, out=None, overwrite: bool = False, level: float = 0.5,
                  time_tolerance: float | None = None, spacing: float | None = None,
                  reference_table: str | None = None, rising_bubble: bool = False, workers: int = 1,
-                 threads: int | None = None, progress=False, snapshots: int = 3) -> CompareResult:
+                 threads: int | None = None, progress=False, snapshots: int = 3, periodic=()) -> CompareResult:
     """Compare two runs.
 
     Parameters
@@ -103,6 +104,9 @@ def compare_runs(first: RunSpec, second: RunSpec, *, out=None, overwrite: bool =
         Local worker processes for measuring each run.
     threads : int, optional
         Threads of each process (as for ``measure``).
+    periodic : sequence of {'x', 'y', 'z'}
+        Periodic axes of both runs (``measure``'s ``periodic``): droplets join across their boundary
+        planes, and the interface distances wrap there. Both runs must span the same box along them.
 
     Notes
     -----
@@ -121,16 +125,18 @@ def compare_runs(first: RunSpec, second: RunSpec, *, out=None, overwrite: bool =
         return _compare_runs(first, second, out=out, overwrite=overwrite, level=level,
                              time_tolerance=time_tolerance, spacing=spacing, reference_table=reference_table,
                              rising_bubble=rising_bubble, workers=workers, threads=threads, progress=progress,
-                             snapshots=snapshots)
+                             snapshots=snapshots, periodic=periodic)
 
 
 def _compare_runs(first, second, *, out, overwrite, level, time_tolerance, spacing, reference_table,
-                  rising_bubble, workers, threads, progress, snapshots):
+                  rising_bubble, workers, threads, progress, snapshots, periodic):
     import pandas as pd
 
     from ..analysis import compare as cmp
     from ..analysis import references
     from ..io import Series
+    from ._compare_kinds import band_excess
+    from ._compare_periodic import check_one_period, normalize_periodic
     from ._compare_steps import paired_shapes, plan_sampling
     from .measure import measure
 
@@ -142,6 +148,7 @@ def _compare_runs(first, second, *, out, overwrite, level, time_tolerance, spaci
                               f"[{'first' if flag == 'a' else 'second'}])",
                               fix="leave --level out: it is both runs' level, and a level set's interface is where "
                                   "the field is 0")
+    periodic = normalize_periodic(periodic)
     if threads is not None:
         from ..model._threads import check_threads
 
@@ -164,6 +171,7 @@ def _compare_runs(first, second, *, out, overwrite, level, time_tolerance, spaci
     try:  # each run's step choice and its times checked before either is measured
         chosen = tuple(_chosen(spec, series, flag) for spec, series, flag in zip((first, second), both, "ab"))
         _one_time_axis(both, chosen)
+        check_one_period(both, chosen, periodic)
         predicted = _some_pair(both, chosen, time_tolerance)
         table = _checked_reference_table(reference_table) if reference_table else None  # a bad table before measuring
     except BaseException:
@@ -189,7 +197,7 @@ def _compare_runs(first, second, *, out, overwrite, level, time_tolerance, spaci
         options = MeasureOptions(field=spec.field, range=spec.range, phase=spec.phase, level=level,
                                  velocity=spec.velocity, field_location=spec.field_location,
                                  sort_by_time=spec.sort_by_time, level_set=spec.level_set,
-                                 interface_kind=spec.interface_kind, steps=spec.steps)
+                                 interface_kind=spec.interface_kind, steps=spec.steps, periodic=periodic)
         res = measure(spec.path, options=plan.options(options, k), workers=workers, threads=threads, progress=progress,
                       snapshots=0,
                       progress_label=f"steps of {labels[k]}")
@@ -212,7 +220,7 @@ def _compare_runs(first, second, *, out, overwrite, level, time_tolerance, spaci
         keep = set(np.linspace(0, n_pairs - 1, min(snapshots, n_pairs)).round().astype(int)) if n_pairs else set()
         shapes, overlays = paired_shapes(pairs, res_a.results, res_b.results, plan, series=series,
                                          options=(res_a.options, res_b.options), level=level, spacing=spacing,
-                                         overlay_pairs=keep)
+                                         overlay_pairs=keep, periodic=periodic)
     finally:
         for s in series:
             s.close()
@@ -236,7 +244,7 @@ def _compare_runs(first, second, *, out, overwrite, level, time_tolerance, spaci
                            unpaired={labels[0]: list(unpaired_a), labels[1]: list(unpaired_b)},
                            droplet_statistics=drop_stats, reference_checks=reference_checks,
                            first=res_a, second=res_b, labels=labels, paired_by="step number" if told else "time",
-                           warnings=told)
+                           warnings=told, band_excess=band_excess(res_a, res_b, pairs, labels, periodic))
     if out is not None:
         from ..report._compare_report import write_compare_report
         from ._report_data import package_version, series_input_files
@@ -457,4 +465,4 @@ def compare_arguments(recipe: dict) -> dict:
                 overwrite=recipe["output"].get("overwrite", False), level=c.get("level", 0.5),
                 time_tolerance=c.get("time_tolerance"), spacing=c.get("spacing"),
                 reference_table=c.get("reference_table"), rising_bubble=c.get("rising_bubble", False),
-                workers=run.get("workers", 1), threads=run.get("threads"))
+                workers=run.get("workers", 1), threads=run.get("threads"), periodic=tuple(c.get("periodic", ())))
