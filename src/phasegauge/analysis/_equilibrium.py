@@ -11,7 +11,9 @@ the gradient energy by face differences (the discrete energy whose variation is 
 Laplacian), zero flux through the boundary unless the axis is periodic. With point values: the
 same on the point lattice, edge differences between neighbouring points and f and mu at the
 points, each point weighted by its share of the cells (the trapezoid rule: half a spacing on a
-boundary plane); a periodic axis's two boundary planes are one plane written twice.
+boundary plane). A periodic axis's two boundary planes equal to round-off are one plane written
+twice (a finite element code's layout); otherwise the period is one spacing beyond the last plane
+(a spectral code's N points 0..N-1), every point weighted by a whole spacing.
 
 References
 ----------
@@ -71,55 +73,83 @@ def _cell_lattice(phi: np.ndarray, h: tuple, wrapped: tuple) -> tuple[np.ndarray
     return lap, grad_energy
 
 
-def _point_weights(n: int, step: float, ndim: int, axis: int) -> np.ndarray:
-    """Trapezoid weights of ``n`` points a ``step`` apart, shaped to broadcast along ``axis``."""
+def _point_weights(n: int, step: float, ndim: int, axis: int, ends: bool = True) -> np.ndarray:
+    """Weights of ``n`` points a ``step`` apart, shaped to broadcast along ``axis``: the trapezoid
+    rule (half a step on the two end planes) with ``ends``, a whole step each without."""
     w = np.full(n, step)
-    w[[0, -1]] *= 0.5
+    if ends:
+        w[[0, -1]] *= 0.5
     shape = [1] * ndim
     shape[axis] = n
     return w.reshape(shape)
 
 
-def _point_lattice(phi: np.ndarray, h: tuple, wrapped: tuple) -> tuple[np.ndarray, float, np.ndarray]:
-    """Laplacian, sum of squared gradients times volume, and the points' volumes, of point values.
+def _product_but(weights: list, axis: int, ndim: int) -> np.ndarray:
+    """The product of the weights of every axis but ``axis`` (the area across it of each edge)."""
+    across = np.ones((1,) * ndim)
+    for j, w in enumerate(weights):
+        if j != axis:
+            across = across * w
+    return across
+
+
+def _point_lattice(phi: np.ndarray, h: tuple, wrapped: tuple) -> tuple[np.ndarray, float, np.ndarray, float]:
+    """Laplacian, sum of squared gradients times volume, the points' volumes, and the sum of squared
+    gradients times volume over the mesh as written, of point values.
 
     Edge differences between neighbouring points, each edge weighted by its length times the
-    trapezoid weights across it; the Laplacian is that energy's variation per point volume: beyond
-    a wall the mirror point (no flux), across a periodic axis's boundary plane the point next to the
-    far plane (the two planes are the same points).
+    weights across it; the Laplacian is that energy's variation per point volume: beyond a wall the
+    mirror point (no flux). A periodic axis has one of two layouts. Its two boundary planes equal to
+    round-off (:func:`plane_written_twice`) are one plane written twice: trapezoid weights, and
+    across the boundary the point next to the far plane. Otherwise the period is one spacing beyond
+    the last plane (a spectral code's N points 0..N-1): a whole spacing for every point, and the
+    edge from the last plane to the first. The mesh ends at the last plane in either layout: the
+    last sum, the gradient energy where an interface traced on the mesh lies, leaves that edge out.
     """
+    from ._periodic_look import plane_written_twice
+
     ndim = phi.ndim
-    weights = [_point_weights(n, step, ndim, k) for k, (n, step) in enumerate(zip(phi.shape, h))]
+    rolled = tuple(bool(wraps) and not plane_written_twice(phi, k) for k, wraps in enumerate(wrapped))
+    weights = [_point_weights(n, step, ndim, k, ends=not rolled[k])
+               for k, (n, step) in enumerate(zip(phi.shape, h))]
+    on_mesh = [_point_weights(n, step, ndim, k) for k, (n, step) in enumerate(zip(phi.shape, h))]
     volume = np.ones((1,) * ndim)
     for w in weights:
         volume = volume * w
     lap = np.zeros_like(phi)
-    grad_energy = 0.0
+    grad_energy = mesh_energy = 0.0
     for k, (step, wraps) in enumerate(zip(h, wrapped)):
-        across = np.ones((1,) * ndim)
-        for j, w in enumerate(weights):
-            if j != k:
-                across = across * w
-        edges = np.diff(phi, axis=k)
-        squares = np.square(edges)
-        squares *= across
-        grad_energy += float(squares.sum()) / step
-        del squares
+        across = _product_but(weights, k, ndim)
         # along the axis k: the first, last, second and last but one planes of points; the first
         # and last edges; all edges but the first, all but the last
         first, last, second, before_last, rest, head = (
             _along(ndim, k, part) for part in (slice(0, 1), slice(-1, None), slice(1, 2), slice(-2, -1),
                                                slice(1, None), slice(None, -1)))
+        edges = np.diff(phi, axis=k)
+        squares = np.square(edges)
+        if any(rolled):  # the mesh's own weights differ from the period's
+            mesh_energy += float(np.sum(squares * _product_but(on_mesh, k, ndim))) / step
+        squares *= across
+        grad_energy += float(squares.sum()) / step
+        del squares
+        closing = None
+        if rolled[k]:  # the edge from the last plane to the first, one spacing beyond the mesh
+            closing = phi[first] - phi[last]
+            grad_energy += float(np.sum(np.square(closing) * across)) / step
         edges /= step ** 2  # differences per spacing squared from here on
         lap[_along(ndim, k, slice(1, -1))] += edges[rest] - edges[head]  # (ahead - behind) inside
-        if wraps:  # across the boundary plane: the point next to the far plane (the same plane)
+        if closing is not None:  # the period one spacing beyond the last plane
+            closing /= step ** 2
+            lap[first] += edges[first] - closing
+            lap[last] += closing - edges[last]
+        elif wraps:  # one plane written twice: across it the point next to the far plane
             lap[first] += edges[first] - (phi[first] - phi[before_last]) / step ** 2
             lap[last] += (phi[second] - phi[last]) / step ** 2 - edges[last]
         else:  # the mirror point beyond the wall: no flux
             lap[first] += 2.0 * edges[first]
             lap[last] -= 2.0 * edges[last]
         del edges
-    return lap, grad_energy, volume
+    return lap, grad_energy, volume, mesh_energy if any(rolled) else grad_energy
 
 
 def equilibrium_metrics(mesh: Mesh, field, model, *, kappa: float, periodic=(),
@@ -131,8 +161,9 @@ def equilibrium_metrics(mesh: Mesh, field, model, *, kappa: float, periodic=(),
     mesh : Mesh
         A uniform regular grid (other meshes give NaN).
     field : ndarray of shape (n_cells,) or (n_points,)
-        The order parameter in the model's own variable (the field as written, not c), on the
-        cells or on the points: point values are measured on the point lattice itself.
+        The order parameter in the model's own variable (``measure --free-energy`` passes c, the
+        field mapped through its range), on the cells or on the points: point values are measured
+        on the point lattice itself.
     model : DoubleWellModel, NrtlModel or RegularSolutionModel
         The bulk free energy ``f`` (``model.mixing_gibbs``) and its slope
         (``model.mixing_gibbs_slope``): the double well ``height (phi - lean)^2 (phi - rich)^2``,
@@ -141,8 +172,9 @@ def equilibrium_metrics(mesh: Mesh, field, model, *, kappa: float, periodic=(),
     kappa : float
         Gradient-energy coefficient (> 0), in field^-2 energy length^2 per volume units.
     periodic : sequence of {'x', 'y', 'z'}
-        Periodic axes (the stencil wraps; with point values the two boundary planes hold the same
-        points); other boundaries carry no flux.
+        Periodic axes (the stencil wraps); other boundaries carry no flux. With point values each
+        such axis's two boundary planes are one plane written twice where their values are equal
+        to round-off, and the period is one spacing beyond the last plane where they are not.
     interface_size : float, optional
         Length (2D) or area (3D) of the interface, for the tension.
     temperature : float, optional
@@ -155,7 +187,8 @@ def equilibrium_metrics(mesh: Mesh, field, model, *, kappa: float, periodic=(),
         (largest |mu - mean|), ``chemical_potential_spread_rms`` (volume-weighted RMS of
         mu - mean), ``free_energy`` (int f + kappa/2 |grad phi|^2 dV), ``gradient_energy``
         (int kappa |grad phi|^2 dV), ``interfacial_tension`` (gradient energy per interface
-        size; NaN without one).
+        size; NaN without one; with point values whose period lies one spacing beyond the last
+        plane, the gradient energy over the mesh as written, where the interface was traced).
 
     Notes
     -----
@@ -179,10 +212,10 @@ def equilibrium_metrics(mesh: Mesh, field, model, *, kappa: float, periodic=(),
     wrap = {AXIS_INDEX[a] for a in periodic}
     wrapped = tuple(axis in wrap for axis in grid.mesh_axes)
     if on_points:
-        lap, grad_energy, volume = _point_lattice(phi, h, wrapped)
+        lap, grad_energy, volume, mesh_energy = _point_lattice(phi, h, wrapped)
     else:
         lap, grad_energy = _cell_lattice(phi, h, wrapped)
-        volume = float(np.prod(h))
+        volume, mesh_energy = float(np.prod(h)), grad_energy
     if getattr(model, "kind", "") != "double-well":  # a mole fraction: the logarithms need 0 < x < 1
         if temperature is None or not np.isfinite(temperature):
             return _nan()
@@ -201,7 +234,7 @@ def equilibrium_metrics(mesh: Mesh, field, model, *, kappa: float, periodic=(),
         dev = mu - mean
         rms = float(np.sqrt(np.mean(dev ** 2)))
         bulk_energy = float(bulk.sum() * volume)
-    tension = (kappa * grad_energy / interface_size
+    tension = (kappa * mesh_energy / interface_size
                if interface_size is not None and np.isfinite(interface_size) and interface_size > 0
                else float("nan"))
     return {"chemical_potential_mean": mean,

@@ -7,7 +7,10 @@ boundary in two; :func:`looks_periodic` lets the run say so.
 On the cells of a regular grid no value is written twice: there a field looks periodic when its
 last layer of cells joins the first as smoothly as neighbouring layers join inside
 (:func:`cells_look_periodic`). The stencil of the free energy and the chemical potential takes
-such an axis as a closed wall unless it is named periodic.
+such an axis as a closed wall unless it is named periodic. The same rule serves the points of a
+regular grid (:func:`points_look_periodic`), whichever of a periodic solver's two layouts they
+have (:func:`plane_written_twice`): both ends of the period written, or the period one spacing
+beyond the last plane, as a spectral (FFT) code writes its array.
 """
 
 from __future__ import annotations
@@ -18,7 +21,7 @@ from ..model.axes import AXIS_NAMES
 from ..model.corners import corner_extremes
 from ..model.mesh import Mesh
 
-__all__ = ["looks_periodic", "cells_look_periodic", "ROUNDOFF"]
+__all__ = ["looks_periodic", "cells_look_periodic", "points_look_periodic", "plane_written_twice", "ROUNDOFF"]
 
 #: largest difference, relative to the field's spread on the boundary, counted as round-off
 ROUNDOFF = 1e-9
@@ -145,10 +148,61 @@ def looks_periodic(mesh: Mesh, c_point, *, periodic=(), level: float | None = No
     return found
 
 
+def plane_written_twice(values: np.ndarray, axis: int) -> bool:
+    """Whether the first and last planes of an array of point values along ``axis`` are one plane
+    written twice: equal within ``ROUNDOFF`` of the whole array's spread.
+
+    Parameters
+    ----------
+    values : ndarray
+        Point values of a regular grid, one array axis per mesh axis, finite.
+    axis : int
+        The array axis.
+
+    Returns
+    -------
+    bool
+        True for a periodic solver that writes its points on both ends of the period (a finite
+        element code: the two boundary planes are the same points); False for one whose period is
+        one spacing beyond the last plane (a spectral code writing its N x N array on points
+        0..N-1), or for a field that is not periodic. Equal planes read True whatever the writer:
+        a field uniform along the axis cannot tell its layout (written as N points 0..N-1, it is
+        then measured over N - 1 of its N spacings).
+    """
+    values = np.asarray(values)
+    if values.shape[axis] < 2:
+        return False
+    first = np.take(values, 0, axis=axis)
+    last = np.take(values, -1, axis=axis)
+    return float(np.max(np.abs(first - last))) <= ROUNDOFF * float(np.ptp(values))
+
+
 def _layer_rms(values: np.ndarray, axis: int) -> np.ndarray:
     """Root mean square of ``values`` over each layer along ``axis`` (one number a layer)."""
     others = tuple(a for a in range(values.ndim) if a != axis)
     return np.sqrt(np.mean(np.square(values), axis=others))
+
+
+def _layers_look_periodic(field: np.ndarray, mesh_axes, periodic) -> list:
+    """Axis names along which the layers of ``field`` (one array axis per mesh axis, the last
+    layer the one before the first across the period) join across the boundary as inside."""
+    found = []
+    for k, mesh_axis in enumerate(mesh_axes):
+        name = AXIS_NAMES[mesh_axis]
+        if name in periodic or field.shape[k] < 4:
+            continue
+        layers = np.moveaxis(field, k, 0)
+        first, last = layers[0], layers[-1]
+        if not max(float(np.ptp(first)), float(np.ptp(last))) > MIN_VARIATION:
+            continue
+        steps = np.diff(layers, axis=0)  # d_i = layer i+1 - layer i
+        inner = float(_layer_rms(np.diff(steps, axis=0), 0).max())
+        jump = first - last  # the step from the last layer to the first, wrapped
+        wrapped = np.sqrt(0.5 * (np.mean(np.square(steps[0] - jump)) + np.mean(np.square(jump - steps[-1]))))
+        walled = np.sqrt(0.5 * (np.mean(np.square(steps[0])) + np.mean(np.square(steps[-1]))))
+        if wrapped <= inner and wrapped < walled:
+            found.append(name)
+    return found
 
 
 def cells_look_periodic(mesh: Mesh, c_cell, *, periodic=()) -> list:
@@ -190,21 +244,36 @@ def cells_look_periodic(mesh: Mesh, c_cell, *, periodic=()) -> list:
     values = np.asarray(c_cell, dtype=np.float64)
     if grid is None or values.shape != (mesh.n_cells,) or not np.isfinite(values).all():
         return []
-    field = grid.cells_to_array(values)
-    found = []
-    for k, mesh_axis in enumerate(grid.mesh_axes):
-        name = AXIS_NAMES[mesh_axis]
-        if name in periodic or field.shape[k] < 4:
-            continue
-        layers = np.moveaxis(field, k, 0)
-        first, last = layers[0], layers[-1]
-        if not max(float(np.ptp(first)), float(np.ptp(last))) > MIN_VARIATION:
-            continue
-        steps = np.diff(layers, axis=0)  # d_i = layer i+1 - layer i
-        inner = float(_layer_rms(np.diff(steps, axis=0), 0).max())
-        jump = first - last  # the step from the last layer to the first, wrapped
-        wrapped = np.sqrt(0.5 * (np.mean(np.square(steps[0] - jump)) + np.mean(np.square(jump - steps[-1]))))
-        walled = np.sqrt(0.5 * (np.mean(np.square(steps[0])) + np.mean(np.square(steps[-1]))))
-        if wrapped <= inner and wrapped < walled:
-            found.append(name)
-    return found
+    return _layers_look_periodic(grid.cells_to_array(values), grid.mesh_axes, periodic)
+
+
+def points_look_periodic(mesh: Mesh, c_point, *, periodic=()) -> list:
+    """Axes of a regular grid along which the point values look periodic: the rule of
+    :func:`cells_look_periodic` on the planes of points.
+
+    Parameters
+    ----------
+    mesh : Mesh
+        A regular grid (any other mesh gives an empty list).
+    c_point : ndarray of shape (n_points,)
+        Point values of the indicator, dimensionless (0 and 1 in the bulk phases).
+    periodic : sequence of str
+        Axes already measured as periodic (not checked).
+
+    Returns
+    -------
+    list of str
+        Axis names along which the planes of points join across the boundary as neighbouring
+        planes join inside, and better than with closed walls. Where the two boundary planes are
+        one plane written twice (:func:`plane_written_twice`) the last but one plane is the one
+        before the first; otherwise the last plane is (the period one spacing beyond it).
+    """
+    grid = mesh.regular_grid
+    values = np.asarray(c_point, dtype=np.float64)
+    if grid is None or values.shape != (mesh.n_points,) or not np.isfinite(values).all():
+        return []
+    field = grid.points_to_array(values)
+    for k in range(field.ndim):
+        if plane_written_twice(field, k):  # one period: the last plane left out
+            field = field[tuple(slice(None, -1) if j == k else slice(None) for j in range(field.ndim))]
+    return _layers_look_periodic(field, grid.mesh_axes, periodic)

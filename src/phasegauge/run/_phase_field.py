@@ -50,8 +50,8 @@ def equilibrium_step(step, mesh, ind, options, interface_size) -> dict:
         from ._mixture import step_temperature
 
         temperature = step_temperature(step, mesh, options)
-    if uniform and ind.location == "cell":  # (point data has the droplets' own "looks periodic" warning)
-        _warn_cells_look_periodic(mesh, c, options.periodic, where)
+    if uniform:  # whatever --analyses holds
+        _warn_looks_periodic(mesh, c, ind.location, options.periodic, where)
     return equilibrium_metrics(mesh, c, model, kappa=model.kappa, periodic=tuple(options.periodic),
                                interface_size=interface_size, temperature=temperature)
 
@@ -75,16 +75,20 @@ def _warn_beyond_the_wells(c, model, value_range, where: str) -> None:
         stacklevel=3)
 
 
-def _warn_cells_look_periodic(mesh, c, periodic, where: str) -> None:
+def _warn_looks_periodic(mesh, c, location: str, periodic, where: str) -> None:
     """One warning (collapsed over steps) when the field looks periodic along an axis the stencil
-    closes (:func:`phasegauge.analysis.droplets.cells_look_periodic`)."""
-    from ..analysis.droplets import cells_look_periodic
+    closes (:func:`phasegauge.analysis.droplets.cells_look_periodic`, or on point data
+    :func:`phasegauge.analysis.droplets.points_look_periodic`, in either layout of a periodic run's points)."""
+    from ..analysis.droplets import cells_look_periodic, points_look_periodic
 
-    axes = cells_look_periodic(mesh, c, periodic=tuple(periodic))
+    on_points = location == "point"
+    rule = points_look_periodic if on_points else cells_look_periodic
+    axes = rule(mesh, c, periodic=tuple(periodic))
     if axes:
         names = ",".join(axes)
+        layers = "plane of points" if on_points else "layer of cells"
         warnings.warn(MeshWarning(
-            f"the field looks periodic along {names} (its last layer of cells joins the first as smoothly as "
-            "neighbouring layers join), but the free energy and chemical potential take closed walls there, "
+            f"the field looks periodic along {names} (its last {layers} joins the first as smoothly as "
+            "neighbouring ones join), but the free energy and chemical potential take closed walls there, "
             f"which raises the chemical potential's spread at the boundary; give --periodic "
             f"{','.join(sorted(set(periodic) | set(axes)))} if the run is periodic", where=where), stacklevel=3)
