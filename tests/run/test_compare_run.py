@@ -146,6 +146,31 @@ def _drop_written_at_two_intervals(tmp_path):
     return tmp_path
 
 
+def test_two_snapshots_without_times_pair_without_a_warning_and_a_choice_of_steps_names_the_series(tmp_path):
+    # one file each: a snapshot against a snapshot, nothing to pair in time, so no warning; two series of 6 and 3
+    # numbered files with every other step chosen of the first (3 rows each): named by their series' step
+    # counts (6 and 3: written at other intervals over one span), not by the rows chosen
+    import warnings
+
+    folder = _drop_written_at_two_intervals(tmp_path)
+    with warnings.catch_warnings():
+        warnings.filterwarnings("error", message=".*neither run stores times.*")
+        one = compare_runs(RunSpec(str(folder / "a_0.vtu"), "phi", (-1, 1), label="pf"),
+                           RunSpec(str(folder / "b_0.vtu"), "alpha", label="vof"), out=folder / "one")
+    assert one.warnings == [] and len(one.comparison) == 1
+    with pytest.warns(UserWarning, match="neither run stores times") as caught:
+        compare_runs(RunSpec(str(folder / "a_*.vtu"), "phi", (-1, 1), label="pf", steps="::2"),
+                     RunSpec(str(folder / "b_*.vtu"), "alpha", label="vof"), out=folder / "sub")
+    said = next(str(w.message) for w in caught if "neither run" in str(w.message))
+    assert "pf's series has 6 steps, vof's 3" in said
+    # the same series of 6 as both runs, every other step of one: written at one interval, no such clause
+    with pytest.warns(UserWarning, match="neither run stores times") as caught:
+        compare_runs(RunSpec(str(folder / "a_*.vtu"), "phi", (-1, 1), label="pf"),
+                     RunSpec(str(folder / "a_*.vtu"), "phi", (-1, 1), label="again", steps="::2"), out=folder / "same")
+    said = next(str(w.message) for w in caught if "neither run" in str(w.message))
+    assert "series has" not in said and "other intervals" not in said
+
+
 def test_runs_without_times_are_said_to_pair_by_step_number(tmp_path):
     folder = _drop_written_at_two_intervals(tmp_path)
     ref = folder / "ref.csv"  # the disc area pi r^2 = 0.125664 (exact geometry), at a time and as an extreme
@@ -156,7 +181,7 @@ def test_runs_without_times_are_said_to_pair_by_step_number(tmp_path):
                                 RunSpec(str(folder / "b_*.vtu"), "alpha", label="vof"), out=folder / "n",
                                 reference_table=str(ref))
     said = next(str(w.message) for w in caught if "neither run" in str(w.message))
-    assert "pf has 6 steps, vof 3" in said and "give `time,path` listings with the output times" in said
+    assert "pf's series has 6 steps, vof's 3" in said and "give `time,path` listings with the output times" in said
     assert numbered.paired_by == "step number" and numbered.warnings == [said]
     manifest = json.loads((folder / "n" / "manifest.json").read_text())
     assert manifest["paired_by"] == "step number" and manifest["comparison_warnings"] == [said]

@@ -54,5 +54,8 @@ def check_one_period(both, chosen, periodic) -> None:
         if abs(lo_a - lo_b) > PERIOD_SHARE * period or abs(hi_a - hi_b) > PERIOD_SHARE * period:
             raise InputError(f"the runs span other lengths along the periodic axis {axis} (the first from "
                              f"{lo_a:.6g} to {hi_a:.6g}, the second from {lo_b:.6g} to {hi_b:.6g}), so no one "
-                             "period wraps both", where=f"{both[0].path}; {both[1].path}",
-                             fix=f"compare runs of the same periodic box, or leave {axis} out of --periodic")
+                             "period wraps both (point data of a periodic run written as N points, without its "
+                             "boundary plane repeated, spans one spacing less than the period)",
+                             where=f"{both[0].path}; {both[1].path}",
+                             fix=f"compare runs of the same periodic box (point data with the boundary plane written "
+                                 f"on both sides), or leave {axis} out of --periodic")

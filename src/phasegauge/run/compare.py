@@ -209,7 +209,7 @@ def _compare_runs(first, second, *, out, overwrite, level, time_tolerance, spaci
         from ._report_data import measured_time_origin
 
         origins = {label: measured_time_origin(s, res.results) for label, s, res in zip(labels, series, runs)}
-        told = _numbered_pairing(origins, runs, labels)
+        told = _numbered_pairing(origins, runs, labels, [len(s.steps) for s in series])
         times_a = pd.Series(res_a.steps["time"].to_numpy(), index=res_a.steps["step"].to_numpy())
         times_b = pd.Series(res_b.steps["time"].to_numpy(), index=res_b.steps["step"].to_numpy())
         pairs, unpaired_a, unpaired_b = cmp.pair_times(times_a, times_b, tolerance=time_tolerance)
@@ -379,18 +379,19 @@ def _near_misses(times_a, times_b, unpaired_a, unpaired_b) -> None:
             f"pair them with --time-tolerance {1.01 * near.max():.3g}"), stacklevel=4)
 
 
-def _numbered_pairing(origins: dict, runs, labels) -> list:
+def _numbered_pairing(origins: dict, runs, labels, totals) -> list:
     """Where neither run stores times (both measured steps' times are their numbers 0, 1, 2 ...): the
     warning, given here and returned (for the report and manifest), that the steps are paired by number;
-    else an empty list. Two runs of other step counts are named with them: over one span they were
-    written at other intervals, so their pairs compare other moments."""
-    if not all(origin == "index" for origin in origins.values()):
+    else an empty list, as for one step of each (two snapshots: nothing to pair in time). Two series of
+    other step counts (``totals``, the whole series', whatever steps were chosen) are named with them:
+    over one span they were written at other intervals, so their pairs compare other moments."""
+    if not all(origin == "index" for origin in origins.values()) or all(len(res.steps) <= 1 for res in runs):
         return []
-    counts = [len(res.steps) for res in runs]
     said = ("neither run stores times: steps paired by number, which compares the same moments only if both runs "
             "wrote at the same interval from the same start")
-    if counts[0] != counts[1]:
-        said += f" ({labels[0]} has {counts[0]} steps, {labels[1]} {counts[1]}: over one span, other intervals)"
+    if totals[0] != totals[1]:
+        said += (f" ({labels[0]}'s series has {totals[0]} steps, {labels[1]}'s {totals[1]}: over one span, other "
+                 "intervals)")
     said += "; give `time,path` listings with the output times"
     warnings.warn(PhasegaugeWarning(said), stacklevel=4)
     return [said]
