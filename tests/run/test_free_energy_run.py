@@ -92,6 +92,19 @@ def test_a_well_mapped_from_the_order_parameter_gives_cahn_hilliards_energy(tmp_
     assert step["free_energy"] == pytest.approx(energy, rel=1e-9)
 
 
+@pytest.mark.parametrize("analyses", [("mixing",), ("droplets",), ("conservation",)])
+def test_the_tension_is_measured_whatever_the_analyses(tmp_path, analyses):
+    """Without the interface analysis the step still finds the contour c = level for the tension (it was left
+    empty): the same sigma as with it, and Cahn & Hilliard's (2 sqrt 2 / 3) sqrt(kappa beta) within 1 % [calc]."""
+    mesh, phi, _ = _grid_field(_drop)
+    run = _series(tmp_path / "run", mesh, phi, steps=1)
+    model = _well(tmp_path / "well.toml", 0.0, 1.0, 4 * BETA, 4 * KAPPA_PHI)
+    full = measure(run, "phi", range=(-1, 1), free_energy=model, analyses=("interface",)).steps.iloc[0]
+    step = measure(run, "phi", range=(-1, 1), free_energy=model, analyses=analyses).steps.iloc[0]
+    assert step["interfacial_tension"] == pytest.approx(full["interfacial_tension"], rel=1e-9)
+    assert step["interfacial_tension"] == pytest.approx(2 * np.sqrt(2) / 3 * np.sqrt(KAPPA_PHI * BETA), rel=0.01)
+
+
 def test_a_well_on_the_fields_own_scale_is_refused_with_the_same_well_mapped(tmp_path):
     """A well at -1 and 1 would be evaluated where the field never goes (c in [0, 1]): refused in one line that
     writes the same energy on c (height times (hi - lo)^4 = 16, kappa times (hi - lo)^2 = 4), for both options."""

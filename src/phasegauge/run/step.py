@@ -257,12 +257,13 @@ def analyse_step(step, options, *, contour_dir: str | None = None, threads: int 
             profile.insert(0, "time", step.time)
             profile.insert(0, "step", step.index)
             result.profile = profile
-    if options.coarsening:  # the spacing takes the interface's size where the step measured it
+    if options.coarsening or options.free_energy is not None:  # the spacing and the tension: one interface size
+        size = _interface_size(mesh, ind, options, m, contour)
+    if options.coarsening:
         m["coarsening_length"] = mixing.coarsening_length(mesh, ind.cell)
-        size = m.get("interface_size", None if contour is None else float(np.sum(contour.element_sizes)))
         m["interface_spacing"] = mixing.interface_spacing(mesh, ind.point, level=options.level, interface_size=size)
     if options.free_energy is not None:
-        m.update(_equilibrium(step, mesh, ind, options, m.get("interface_size")))
+        m.update(_equilibrium(step, mesh, ind, options, size))
     if options.model is not None:  # a partially miscible mixture: bulk compositions against the model
         from ._mixture import mixture_step
 
@@ -381,6 +382,19 @@ def _label_droplets(mesh, ind, options, u_cell, contour, plateaus):
         velocity=u_cell, interface_cells=contour.cells, interface_sizes=contour.element_sizes,
         interface_centres=contour.centroids, interface_normals=contour.normals, bulk=(low, high),
         band_floor=max(1e-3, tail) if (low, high) != (0.0, 1.0) else 1e-3)
+
+
+def _interface_size(mesh, ind, options, m: dict, contour) -> float:
+    """The step's interface size (length in 2D, area in 3D) of the contour c = level: the interface
+    analysis's, else the droplets' contour's, else the contour found here (the coarsening's spacing and the
+    free energy's tension need it whatever ``--analyses`` holds)."""
+    if "interface_size" in m:
+        return m["interface_size"]
+    if contour is None:
+        from ..analysis._contour import find_interface
+
+        contour = find_interface(mesh, ind.point, level=options.level)
+    return float(np.sum(contour.element_sizes))
 
 
 def _equilibrium(step, mesh, ind, options, interface_size) -> dict:
