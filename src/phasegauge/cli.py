@@ -175,7 +175,8 @@ def inspect(path, as_json, scan, sort_by_time):
               help="Cells that share a face (or an edge in 2D), or any point, belong to one droplet.")
 @click.option("--periodic", default="",
               help="Periodic axes, e.g. x,y: droplets, widths and bulk distances join across them, their boundary "
-                   "planes are never open, and the free energy's stencil wraps there (closed walls elsewhere).")
+                   "planes are never open, and the free energy's stencil and the segregation scale's autocorrelation "
+                   "wrap there (closed walls elsewhere).")
 @click.option("--ignore-remerge-within", "ignore_remerge_within", type=int, default=0, show_default=True,
               help="A breakup that merges again within this many steps (step numbers) is no event.")
 @click.option("--densities", default=None, help="Densities of the measured and the other phase, RHO1,RHO2.")

@@ -350,8 +350,7 @@ def _phase_analyses(step, mesh, ind, options, result, m: dict, velocity: tuple, 
     if "droplets" in options.analyses:
         found = _label_droplets(mesh, ind, options, u_cell, contour, plateaus) if labels is None else labels.result()
         table = found.table
-        if ind.location == "point":  # points written on both ends of a period (cell data cannot tell)
-            _warn_periodic_look(mesh, ind.point, options, step.info.where)
+        _warn_periodic_look(mesh, ind, options, step.info.where)
         m["droplet_count"] = int(found.count)
         m["under_resolved_droplets"] = int(table["under_resolved"].sum()) if len(table) else 0
         labelled = np.flatnonzero(found.labels >= 0)
@@ -405,16 +404,24 @@ def _equilibrium(step, mesh, ind, options, interface_size) -> dict:
     return equilibrium_step(step, mesh, ind, options, interface_size)
 
 
-def _warn_periodic_look(mesh, c_point, options, where: str) -> None:
-    """One warning (collapsed over steps) when the field looks periodic along an axis not measured so."""
-    from ..analysis.droplets import looks_periodic
+def _warn_periodic_look(mesh, ind, options, where: str) -> None:
+    """One warning (collapsed over steps) when the field looks periodic along an axis not measured so: point
+    values written on both ends of a period matching to round-off (:func:`~phasegauge.analysis.droplets.
+    looks_periodic`), or cell values of a regular grid whose last layer joins the first as neighbouring
+    layers join (:func:`~phasegauge.analysis.droplets.cells_look_periodic`)."""
+    from ..analysis.droplets import cells_look_periodic, looks_periodic
 
-    axes = looks_periodic(mesh, c_point, periodic=tuple(options.periodic), level=options.level)
+    if ind.location == "point":
+        axes = looks_periodic(mesh, ind.point, periodic=tuple(options.periodic), level=options.level)
+        how = "the field on opposite boundaries along {} matches to round-off"
+    else:
+        axes = cells_look_periodic(mesh, ind.cell, periodic=tuple(options.periodic))
+        how = "the cells' last layer along {} joins the first as neighbouring layers join"
     if axes:
         names = ",".join(axes)
-        warnings.warn(MeshWarning(f"the field on opposite boundaries along {names} matches to round-off: the run "
-                                  f"looks periodic, and droplets crossing the boundary are counted twice; "
-                                  f"give --periodic {names} if it is", where=where), stacklevel=2)
+        warnings.warn(MeshWarning(f"{how.format(names)}: the run looks periodic, and droplets crossing the "
+                                  f"boundary are counted twice; give --periodic {names} if it is", where=where),
+                      stacklevel=2)
 
 
 # ------------------------------------------------------------------ the unit of parallel work
