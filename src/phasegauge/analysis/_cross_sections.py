@@ -64,6 +64,10 @@ FLOW_MISMATCH = 0.05
 #: no segregated inflow to measure mixing against (dye injected downstream into carrier at c = 0.01, or a
 #: premixed inflow; our threshold)
 UNIFORM_INFLOW = 1e-3
+#: a section whose mean c (weighted as the inflow's) differs from the inflow's mean m by more than this
+#: share of sqrt(m (1 - m)) caps its mixing index against the inflow under 1 - this share: the reference is
+#: then not the mixed state (our threshold)
+MEAN_DRIFT = 0.02
 
 
 #: how to mend an inflow section the sections' figures cannot be read against
@@ -71,9 +75,10 @@ _INFLOW_FIX = ("put the sections across the whole channel, downstream of every i
                "the inflow's mean (--inflow-mean)")
 
 
-def _area_weighted_notes(table: pd.DataFrame, global_axis: int) -> list:
+def _area_weighted_notes(table: pd.DataFrame, global_axis: int, inflow_at: int | None = None) -> list:
     """One warning for the sections with no net flow and one for those with back-flow: their
-    flow-weighted columns took area weights."""
+    flow-weighted columns took area weights; and, where the inflow's mean is read at section ``inflow_at``
+    and it has no net flow, that this mean is its area mean."""
     notes = []
     area = (table["weighting"] == "area").to_numpy()
     share = table["backflow_fraction"].to_numpy()
@@ -87,9 +92,13 @@ def _area_weighted_notes(table: pd.DataFrame, global_axis: int) -> list:
         names = ", ".join(f"{AXIS_NAMES[global_axis]} = {x:.6g}" + (f" ({b:.0%} of its flow)" if chosen is back else "")
                           for x, b in at[:3])
         more = f" and {len(at) - 3} more" if len(at) > 3 else ""
+        inflow = (chosen is not back and inflow_at is not None and bool(chosen[inflow_at])
+                  and np.isfinite(table["mean_area_weighted"].iloc[inflow_at]))
         notes.append(PhasegaugeWarning(f"{why} at {names}{more}: the flow-weighted mean and mixing index there use "
                                        "area weights" + (" (signed flow weights would mix the forward and the "
-                                                         "backward flow)" if chosen is back else "")))
+                                                         "backward flow)" if chosen is back else "")
+                                       + (f", and so does the inflow's mean, read at {AXIS_NAMES[global_axis]} = "
+                                          f"{table['position'].iloc[inflow_at]:.6g}" if inflow else "")))
     return notes
 
 
@@ -110,6 +119,64 @@ def _partial_inflow(table: pd.DataFrame, first: int, where: str) -> str | None:
             "others, so it does not cut the whole inflow (a channel at an angle to the axis, inlets or outlets "
             "between the sections, a velocity that is not finite over part of it, or a volume flow that changes "
             "along the channel: compressible, or changing phase)")
+
+
+def _inflow_reference(table: pd.DataFrame, flux_means: np.ndarray, first: int, global_axis: int,
+                      flowing: bool) -> tuple[float, list]:
+    """The inflow's mean read from the first section along the flow, and the warnings on it; NaN
+    where that section cannot be the inflow. With a velocity, the net dye flux over the net flow
+    (``flux_means``: defined through a section with back-flow too, and the same through every section
+    of a steady channel), else the area mean."""
+    notes = []
+    name = AXIS_NAMES[global_axis]
+    where = f"the first section along the flow ({name} = {table['position'].iloc[first]:.6g})"
+    area_means = table["mean_area_weighted"].to_numpy()
+    means = np.where(np.isfinite(flux_means), flux_means, area_means) if flowing else area_means
+    inflow = float(means[first])
+    if flowing and np.isfinite(flux_means[first]) and table["weighting"].iloc[first] == "area":
+        notes.append(PhasegaugeWarning(
+            f"back-flow ({table['backflow_fraction'].iloc[first]:.0%} of its flow) through {where}: the inflow's "
+            f"mean is its net flow of c over its net flow ({inflow:.4g}), not its area mean ({area_means[first]:.4g})"))
+    problem = _partial_inflow(table, first, where) if flowing else None  # the cause, when so
+    own = table["segregation_intensity_flow" if flowing else "segregation_intensity"].to_numpy()
+    later = np.delete(own, first)
+    later = later[np.isfinite(later)]
+    if problem is None and np.isfinite(inflow) and not ONE_PHASE < inflow < 1 - ONE_PHASE:
+        problem = f"{where} is of one phase (mean c {inflow:.3g})"
+    elif (problem is None and np.isfinite(own[first]) and own[first] < UNIFORM_INFLOW and later.size
+          and later.max() > max(UNIFORM_INFLOW, own[first])):
+        # uniform, and a section downstream more segregated than it: not the inflow of that segregation (a
+        # uniform first section with every later one as uniform or more mixed before it: kept)
+        problem = (f"{where} is uniform (mean c {inflow:.3g}, intensity of segregation {own[first]:.2g}, "
+                   f"{later.max():.2g} downstream): no segregated inflow to measure mixing against (an inlet further "
+                   "downstream, such as dye injected into the carrier, or a premixed inflow)")
+    if problem:
+        notes.append(PhasegaugeWarning(f"{problem}, so the mixing index against the inflow, and the mixing "
+                                       f"length read from it, are undefined: {_INFLOW_FIX}"))
+        return np.nan, notes  # no index against it, not a huge or a wrong one
+    if not flowing:  # flow-weighted means are kept by a steady flow, and change at a dye front: nothing to judge
+        notes += _drifting_mean(table, means, first, inflow, name)
+    return inflow, notes
+
+
+def _drifting_mean(table: pd.DataFrame, means: np.ndarray, first: int, inflow: float, name: str) -> list:
+    """A warning where a section's area mean differs from the inflow's m by more than :data:`MEAN_DRIFT`
+    of sqrt(m (1 - m)): the mixing index against the inflow cannot then pass 1 - that share there (I about
+    m is at least (mean - m)^2 / (m (1 - m)), Danckwerts 1952)."""
+    others = np.delete(means, first)
+    positions = np.delete(table["position"].to_numpy(), first)
+    keep = np.isfinite(others)
+    if not keep.any() or not 0.0 < inflow < 1.0:
+        return []
+    share = np.abs(others[keep] - inflow) / np.sqrt(inflow * (1.0 - inflow))
+    worst = int(np.argmax(share))
+    if share[worst] <= MEAN_DRIFT:
+        return []
+    return [PhasegaugeWarning(
+        f"the area mean of c changes along the channel ({name} = {positions[keep][worst]:.6g}: "
+        f"{others[keep][worst]:.4g} against the inflow's {inflow:.4g}), so the mixing index against the inflow "
+        f"cannot pass {1 - share[worst]:.3g} there: in a steady flow, inflow streams of other speeds (unequal "
+        "inlet widths or flow rates); give the velocity (--velocity) or the inflow's mean (--inflow-mean)")]
 
 
 def normalize_axis(mesh: Mesh, axis) -> tuple[int, int]:
@@ -436,6 +503,7 @@ def cross_sections_noted(mesh: Mesh, c_point_or_indicator, *, axis="x", position
             w, cv = w[good], [v[good] for v in cv]
             un = None if un is None else [v[good] for v in un]
         integrals = _section_integrals(w, cv, un)
+        flux_mean = np.nan
         mean, intensity = _statistics(float(w.sum()), integrals[0], integrals[1], shift)
         row = {"position": float(positions[p]), "area": float(sections.areas[p]), "mean_area_weighted": mean,
                "segregation_intensity": intensity, "weighting": "area"}
@@ -448,6 +516,8 @@ def cross_sections_noted(mesh: Mesh, c_point_or_indicator, *, axis="x", position
             against = float(dot(w, corner_sum([np.maximum(-v if flow >= 0 else v, 0.0) for v in un]))) / len(un)
             row["flow_rate"] = flow
             row["backflow_fraction"] = against / gross if gross > 0 else np.nan
+            if abs(flow) > NO_FLOW_TOLERANCE * gross:  # net dye flux over net flow: defined with back-flow too
+                flux_mean = _statistics(flow, flow_c, flow_cc, shift)[0]
             if abs(flow) > NO_FLOW_TOLERANCE * gross and against <= BACKFLOW_TOLERANCE * gross:
                 mean_f, intensity_f = _statistics(flow, flow_c, flow_cc, shift)
                 used = (flow, flow_c, flow_cc)
@@ -455,42 +525,27 @@ def cross_sections_noted(mesh: Mesh, c_point_or_indicator, *, axis="x", position
             else:  # no net flow through this plane, or back-flow: area weights
                 mean_f, intensity_f = mean, intensity
             row.update(mean_flow_weighted=mean_f, segregation_intensity_flow=intensity_f)
-        return row, used
+        return row, used, flux_mean
 
     # the planes side by side: each reads its own pieces, the rows come back in plane order
-    rows, moments = [], []
-    for row, used in ordered_map(plane, range(len(positions)), threads=threads):
+    rows, moments, flux_means = [], [], []
+    for row, used, flux_mean in ordered_map(plane, range(len(positions)), threads=threads):
         rows.append(row)
         moments.append(used)
+        flux_means.append(flux_mean)
     table = pd.DataFrame(rows, columns=list(PROFILE_COLUMNS))
     notes = []
     table[[c for c in PROFILE_COLUMNS if c != "weighting"]] = table[
         [c for c in PROFILE_COLUMNS if c != "weighting"]].astype(np.float64)
+    # the inflow section: the first plane along the flow (the lowest position, the highest for flow towards -axis)
+    backwards = u is not None and len(table) and float(np.nansum(table["flow_rate"].to_numpy())) < 0
+    first = int(np.argmax(positions) if backwards else np.argmin(positions)) if len(table) else 0
     if u is not None and len(table):
-        notes += _area_weighted_notes(table, global_axis)
-    given = inflow_mean is not None
-    first = 0
-    if not given and len(table):
-        # the inflow section: the first plane along the flow (the lowest position, the highest for
-        # flow towards -axis)
-        backwards = u is not None and float(np.nansum(table["flow_rate"].to_numpy())) < 0
-        first = int(np.argmax(positions) if backwards else np.argmin(positions))
-        inflow_mean = table["mean_flow_weighted"].iloc[first] if u is not None else np.nan
-        if not np.isfinite(inflow_mean):
-            inflow_mean = table["mean_area_weighted"].iloc[first]
-        where = f"the first section along the flow ({AXIS_NAMES[global_axis]} = {positions[first]:.6g})"
-        problem = _partial_inflow(table, first, where) if u is not None else None  # the cause, when so
-        own = table["segregation_intensity_flow" if u is not None else "segregation_intensity"].iloc[first]
-        if problem is None and np.isfinite(inflow_mean) and not ONE_PHASE < inflow_mean < 1 - ONE_PHASE:
-            problem = f"{where} is of one phase (mean c {float(inflow_mean):.3g})"
-        elif problem is None and np.isfinite(own) and own < UNIFORM_INFLOW:
-            problem = (f"{where} is uniform (mean c {float(inflow_mean):.3g}, intensity of segregation "
-                       f"{float(own):.2g}): no segregated inflow to measure mixing against (an inlet further "
-                       "downstream, such as dye injected into the carrier, or a premixed inflow)")
-        if problem:
-            notes.append(PhasegaugeWarning(f"{problem}, so the mixing index against the inflow, and the mixing "
-                                           f"length read from it, are undefined: {_INFLOW_FIX}"))
-            inflow_mean = np.nan  # no index against it, not a huge or a wrong one
+        notes += _area_weighted_notes(table, global_axis, first if inflow_mean is None else None)
+    if inflow_mean is None and len(table):
+        inflow_mean, found = _inflow_reference(table, np.asarray(flux_means, dtype=float), first, global_axis,
+                                               u is not None)
+        notes += found
     table["inflow_mean"] = float(inflow_mean) if len(table) else np.nan
     table["segregation_intensity_inflow"] = [_about(*m, shift, float(inflow_mean)) for m in moments]
     with np.errstate(invalid="ignore"):

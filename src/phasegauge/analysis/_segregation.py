@@ -229,6 +229,31 @@ def mixing_length(profile: pd.DataFrame, *, target: float = 0.9, reference: str 
     return float(ends[1]) - at if backwards else at - float(ends[0])
 
 
+def mixing_length_note(profile: pd.DataFrame, target: float, length: float, axis: str = "x") -> str | None:
+    """What a mixing length read against the inflow (:func:`mixing_length`) does not say by itself:
+    that it is an upper bound (the target met at the first section along the flow: the channel mixed at
+    or before it), or why it is missing (no section meets the target). None otherwise, and where the
+    inflow was refused (:func:`cross_sections` warned of that)."""
+    if "mixing_index_inflow" not in profile or not len(profile):
+        return None
+    backwards = "flow_rate" in profile and float(np.nansum(profile["flow_rate"].to_numpy(dtype=float))) < 0
+    table = profile[["position", "mixing_index_inflow"]].dropna().sort_values("position", ascending=not backwards,
+                                                                           kind="stable")
+    if not len(table):
+        return None
+    x, m = table["position"].to_numpy(), table["mixing_index_inflow"].to_numpy()
+    if np.isfinite(length) and m[0] >= target:
+        return (f"the mixing target {target:g} is met at the first section along the flow ({axis} = {x[0]:.6g}, mixing "
+                f"index against the inflow {m[0]:.3g}), so the mixing length {length:.4g} is an upper bound: the "
+                "channel mixed at or before it; put sections nearer the inlet (--section-positions) for the length")
+    if not np.isfinite(length):
+        best = int(np.argmax(m))
+        return (f"no section meets the mixing target {target:g} (the highest mixing index against the inflow is "
+                f"{m[best]:.3g}, at {axis} = {x[best]:.6g}), so the mixing length is empty: not mixed to the target "
+                "within the sections; a longer channel, or a lower target (--mixing-target)")
+    return None
+
+
 def segregation_scale(mesh: Mesh, c_cell, *, resolution: int | None = None, periodic=()) -> float:
     """Linear scale of segregation (Danckwerts 1952) from the autocorrelation of c.
 
