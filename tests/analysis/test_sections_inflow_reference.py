@@ -89,6 +89,22 @@ def test_a_channel_mixed_before_its_first_section_reads_an_upper_bound():
     assert "met at the first section along the flow (x = 0.125" in note and "upper bound" in note
 
 
+def test_a_well_mixed_channels_noise_keeps_its_first_section_as_the_inflow():
+    # c = 0.5 + a noise of amplitude 0.03 (deterministic) under Poiseuille flow: every section's intensity of
+    # segregation sits near a (2 a)^2 / 12 / (1/4) = 0.0012 (a uniform noise's variance about m = 1/2,
+    # Danckwerts 1952), under and over the uniform threshold by chance. Such a channel is mixed everywhere: the
+    # first section stays the inflow and the mixing length is an upper bound at it (it was refused, NaN,
+    # where one later section's noise read 0.00102 against the first's 0.00099)
+    rng = np.random.default_rng(7)
+    mesh, x, y = _points()
+    c = 0.5 + 0.03 * (2 * rng.random(x.size) - 1)
+    table, notes = _measure(mesh, c, 6 * y * (1 - y))
+    intensity = table["segregation_intensity_flow"].to_numpy()
+    assert np.all(intensity < 4 * 0.0012)
+    assert not any("uniform" in n for n in notes)
+    assert mixing_length(table, target=0.9) == pytest.approx(SECTIONS[0])
+
+
 def test_a_missing_mixing_length_says_why():
     table, _, index, _ = _fast(0.2)  # the index at x = 9.875: 1 - e^(-1.975) sqrt(r) = 0.918 < 0.95
     assert index(9.875) < 0.95 and np.isnan(mixing_length(table, target=0.95))
