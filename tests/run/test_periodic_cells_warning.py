@@ -17,14 +17,18 @@ from phasegauge.meshgen import grid_mesh, to_meshio
 N = 64
 
 
-def _fractions(centre, radius, periodic_x):
-    """Each cell's covered share of a disc (16 x 16 samples a cell), the disc wrapped along x if asked."""
-    mesh = grid_mesh((N, N))
+def _samples(mesh):
+    """16 x 16 sample points in each cell of an N x N grid of the unit square: (x, y), (n_cells, 256) each."""
     sub = (np.arange(16) + 0.5) / 16 / N
     sx, sy = np.meshgrid(sub, sub, indexing="ij")
     lo = mesh.cell_centroids[:, :2] - 0.5 / N
-    x = lo[:, 0, None] + sx.ravel()[None, :]
-    y = lo[:, 1, None] + sy.ravel()[None, :]
+    return lo[:, 0, None] + sx.ravel()[None, :], lo[:, 1, None] + sy.ravel()[None, :]
+
+
+def _fractions(centre, radius, periodic_x):
+    """Each cell's covered share of a disc (16 x 16 samples a cell), the disc wrapped along x if asked."""
+    mesh = grid_mesh((N, N))
+    x, y = _samples(mesh)
     dx = x - centre[0]
     if periodic_x:
         dx = (dx + 0.5) % 1.0 - 0.5
@@ -64,11 +68,7 @@ def test_a_plug_spanning_a_walled_channel_is_not_warned_periodic(tmp_path):
     # a slug filling the channel between its walls y = 0 and 1, its ends bulging alike near both walls (a
     # field mirrored about y = 1/2): its wall layers join as well with closed walls as wrapped, no sign
     mesh = grid_mesh((N, N))
-    sub = (np.arange(16) + 0.5) / 16 / N
-    sx, sy = np.meshgrid(sub, sub, indexing="ij")
-    lo = mesh.cell_centroids[:, :2] - 0.5 / N
-    x = lo[:, 0, None] + sx.ravel()[None, :]
-    y = lo[:, 1, None] + sy.ravel()[None, :]
+    x, y = _samples(mesh)
     alpha = (np.abs(x - 0.5) < 0.15 + 0.05 * np.cos(2 * np.pi * (y - 0.5))).mean(axis=1)
     folder = tmp_path / "plug"
     folder.mkdir()
