@@ -25,7 +25,6 @@ def _write_runs(folder, *, remesh_b_at=None):
     Each run is a ``time,path`` listing, so its times are known before any step is read.
     """
     tri = delaunay_mesh(600, seed=3)
-    lines = {"a": [], "b": []}
     for k in range(4):
         cx = 0.4 + 0.05 * k
         quad = grid_mesh((30, 30) if remesh_b_at is None or k < remesh_b_at else (24, 24))
@@ -34,12 +33,15 @@ def _write_runs(folder, *, remesh_b_at=None):
                                                     quad.cell_centroids[:, 1] - 0.5)) / 0.03))
         to_meshio(tri, point_data={"phi": phi}).write(folder / f"a_{k}.vtu")
         to_meshio(quad, cell_data={"alpha": alpha}).write(folder / f"b_{k}.vtu")
-        for run in "ab":
-            lines[run].append(f"{0.1 * k},{run}_{k}.vtu")
-    for run in "ab":
-        (folder / f"{run}.steps").write_text("\n".join(lines[run]) + "\n")
+    _listings(folder, 4)
     return (RunSpec(str(folder / "a.steps"), "phi", (-1, 1), label="a"),
             RunSpec(str(folder / "b.steps"), "alpha", label="b"))
+
+
+def _listings(folder, steps):
+    """``a.steps`` and ``b.steps``: files ``a_K.vtu`` and ``b_K.vtu`` at t = 0.1 K, K below ``steps``."""
+    for run in "ab":
+        (folder / f"{run}.steps").write_text("".join(f"{0.1 * k},{run}_{k}.vtu\n" for k in range(steps)))
 
 
 def _no_second_read(*args, **kwargs):
@@ -124,7 +126,6 @@ def _drop_against_level_set(folder, *, remesh: bool):
     """The same drop, r = 0.2, moving along x: a phase field phi = tanh((R - r) / (sqrt2 eps)) on a fixed
     quad grid (run A) and a level set G = r - R (negative inside, ``phase='lower'``) on triangle grids of
     24, 30 and 36 cells a side (run B, ``remesh``) or of 24 at every step."""
-    lines = {"a": [], "b": []}
     quad = grid_mesh((40, 40))
     for k in range(3):
         cx = 0.4 + 0.1 * k
@@ -133,10 +134,7 @@ def _drop_against_level_set(folder, *, remesh: bool):
         level = np.hypot(tri.points[:, 0] - cx, tri.points[:, 1] - 0.5) - 0.2
         to_meshio(quad, point_data={"phi": phi}).write(folder / f"a_{k}.vtu")
         to_meshio(tri, point_data={"G": level}).write(folder / f"b_{k}.vtu")
-        for run in "ab":
-            lines[run].append(f"{0.1 * k},{run}_{k}.vtu")
-    for run in "ab":
-        (folder / f"{run}.steps").write_text("\n".join(lines[run]) + "\n")
+    _listings(folder, 3)
     return (RunSpec(str(folder / "a.steps"), "phi", (-1, 1), label="diffuse"),
             RunSpec(str(folder / "b.steps"), "G", phase="lower", level_set=True, label="level_set"))
 

@@ -92,6 +92,13 @@ def bulk_plateaus(c_point: np.ndarray, level: float, mesh=None, *, extremes=None
     if not finite.all():  # (no copy of the values when all are finite)
         c = c[finite]
     plateaus, spreads = [], []
+    made = {}  # the contour's reach, made once for both sides when a side asks
+
+    def contour():
+        if "reach" not in made:
+            made["reach"] = _contour_reach(c_point, level, mesh, extremes)
+        return made["reach"]
+
     for below, ideal, q in ((True, 0.0, 0.5), (False, 1.0, 99.5)):
         mask = c < level if below else c > level
         side = c[mask]
@@ -127,7 +134,7 @@ def bulk_plateaus(c_point: np.ndarray, level: float, mesh=None, *, extremes=None
         # the level holds all of it)
         unreached = (short and near.size >= 0.5 * side.size
                      and (_holds(side, g, mesh, mask, finite)
-                          and _beyond_reach(c_point, level, mesh, mask, finite, g, ideal, extremes)
+                          and _beyond_reach(mesh, mask, finite, g, ideal, contour())
                           if mesh is not None else _holds(side, g, None, mask, finite, UNREACHED_SHARE)
                           and abs(g - ideal) < abs(g - level)))
         # beyond 0.25 of the ideal, a plateau must hold a fifth of its side (a bulk, as a partially
@@ -160,14 +167,37 @@ def _holds(side: np.ndarray, g: float, mesh, mask: np.ndarray, finite: np.ndarra
     return float(volume[near].sum()) >= share * float(volume.sum())
 
 
-def _beyond_reach(c_point: np.ndarray, level: float, mesh, mask: np.ndarray, finite: np.ndarray, g: float,
-                  ideal: float, extremes=None) -> bool:
-    """Whether :data:`PLATEAU_SHARE` of a side (by the points' volumes) lies beyond the interface's reach from the
-    centroids of the cells the level crosses, on points whose profile could not be a logistic tail cut by the domain.
+def _contour_reach(c_point: np.ndarray, level: float, mesh, extremes=None):
+    """What :func:`_beyond_reach` reads of the contour, the same for both sides: ``(tree, eps, cell)``, the
+    search tree of the centroids of the cells the level crosses, the logistic scale eps and those cells'
+    median size; None where the level crosses no cell.
 
     eps is the median of d / |logit c - logit level| over the points at 0.1 < c < 0.9 clear of the level (d their
     distance to those centroids, logit c = ln(c / (1 - c))): the logistic profile c = 1 / (1 + exp(-d / eps)) read
     back (cells and centroids stand for the contour: half a cell of error, within the REACH_CELLS floor).
+    """
+    from scipy.spatial import cKDTree
+
+    c = np.asarray(c_point, dtype=np.float64)
+    ext = corner_extremes(mesh, c) if extremes is None else extremes  # (no mesh-wide incidence made for it)
+    crossed = np.flatnonzero((ext.low < level) & (ext.high > level))
+    del ext
+    if crossed.size == 0:
+        return None
+    tree = cKDTree(mesh.cell_centroids[crossed])
+    with np.errstate(divide="ignore", invalid="ignore"):
+        logit = np.log(c / (1.0 - c)) - np.log(np.clip(level, 0.01, 0.99) / (1.0 - np.clip(level, 0.01, 0.99)))
+    ramp = np.flatnonzero((c > 0.1) & (c < 0.9) & (np.abs(logit) > 0.4))  # 0.4: c 0.1 off the level at 0.5
+    eps = 0.0
+    if ramp.size:
+        eps = float(np.median(tree.query(mesh.coordinates[ramp])[0] / np.abs(logit[ramp])))
+    return tree, eps, float(np.median(mesh.cell_sizes_of(crossed)))
+
+
+def _beyond_reach(mesh, mask: np.ndarray, finite: np.ndarray, g: float, ideal: float, contour) -> bool:
+    """Whether :data:`PLATEAU_SHARE` of a side (by the points' volumes) lies beyond the interface's reach from the
+    centroids of the cells the level crosses, on points whose profile could not be a logistic tail cut by the domain
+    (``contour``: :func:`_contour_reach`'s; None, no contour: nothing reaches the side).
 
     - The reach is max(eps ln(|g - other ideal| / PLATEAU_BAND), REACH_CELLS cells): where a logistic from bulk
       ``g`` to the other phase's ideal comes within PLATEAU_BAND of ``g`` (4.6 eps for a matrix at 0.02). A crest
@@ -180,26 +210,13 @@ def _beyond_reach(c_point: np.ndarray, level: float, mesh, mask: np.ndarray, fin
       centroids stand for the boundary and the contour). The planes of periodic axes count as boundary here:
       that only sets points aside.
     """
-    from scipy.spatial import cKDTree
-
     from ._boundary_reach import boundary_face_tree
 
-    c = np.asarray(c_point, dtype=np.float64)
-    ext = corner_extremes(mesh, c) if extremes is None else extremes  # (no mesh-wide incidence made for it)
-    crossed = np.flatnonzero((ext.low < level) & (ext.high > level))
-    del ext
-    if crossed.size == 0:
-        return True  # no contour: nothing reaches the side
-    tree = cKDTree(mesh.cell_centroids[crossed])
+    if contour is None:
+        return True
+    tree, eps, cell = contour
     at = mesh.coordinates
-    with np.errstate(divide="ignore", invalid="ignore"):
-        logit = np.log(c / (1.0 - c)) - np.log(np.clip(level, 0.01, 0.99) / (1.0 - np.clip(level, 0.01, 0.99)))
-    ramp = np.flatnonzero((c > 0.1) & (c < 0.9) & (np.abs(logit) > 0.4))  # 0.4: c 0.1 off the level at 0.5
-    eps = 0.0
-    if ramp.size:
-        eps = float(np.median(tree.query(at[ramp])[0] / np.abs(logit[ramp])))
     span = max(abs(1.0 - ideal - g), PLATEAU_BAND)  # from g to the other phase's ideal
-    cell = float(np.median(mesh.cell_sizes_of(crossed)))
     reach = max(eps * np.log(span / PLATEAU_BAND), REACH_CELLS * cell)
     points = np.flatnonzero(finite)[mask]
     far = np.flatnonzero(np.isinf(tree.query(at[points], distance_upper_bound=reach)[0]))

@@ -521,9 +521,10 @@ def cross_sections_noted(mesh: Mesh, c_point_or_indicator, *, axis="x", position
             row["flow_rate"] = flow
             row["backflow_fraction"] = against / gross if gross > 0 else np.nan
             if abs(flow) > NO_FLOW_TOLERANCE * gross:  # net dye flux over net flow: defined with back-flow too
-                flux_mean = _statistics(flow, flow_c, flow_cc, shift)[0]
+                flux_statistics = _statistics(flow, flow_c, flow_cc, shift)
+                flux_mean = flux_statistics[0]
             if abs(flow) > NO_FLOW_TOLERANCE * gross and against <= BACKFLOW_TOLERANCE * gross:
-                mean_f, intensity_f = _statistics(flow, flow_c, flow_cc, shift)
+                mean_f, intensity_f = flux_statistics
                 used = (flow, flow_c, flow_cc)
                 row["weighting"] = "flow"
             else:  # no net flow through this plane, or back-flow: area weights

@@ -210,9 +210,7 @@ def mixing_length(profile: pd.DataFrame, *, target: float = 0.9, reference: str 
     if "position" not in profile or column not in profile:
         raise OptionError(f"the profile has no '{column}' or 'position' column",
                           fix="pass a table from cross_sections")
-    # along the flow: from the highest position down when it runs towards -axis (as the inflow section is taken)
-    backwards = "flow_rate" in profile and float(np.nansum(profile["flow_rate"].to_numpy(dtype=float))) < 0
-    table = profile[["position", column]].dropna().sort_values("position", ascending=not backwards, kind="stable")
+    backwards, table = _along_the_flow(profile, column)
     if column == "mixing_index_flow" and len(profile) and profile[column].isna().all():
         raise OptionError("the profile has no flow-weighted mixing index (no velocity given, or no "
                           "net flow through the planes)",
@@ -229,6 +227,15 @@ def mixing_length(profile: pd.DataFrame, *, target: float = 0.9, reference: str 
     return float(ends[1]) - at if backwards else at - float(ends[0])
 
 
+def _along_the_flow(profile: pd.DataFrame, column: str) -> tuple[bool, pd.DataFrame]:
+    """Whether the net flow runs towards -axis, and the profile's ``position`` and ``column`` (rows where both are
+    finite) along the flow: from the highest position down when it runs towards -axis (as the inflow section is
+    taken), rising positions otherwise and without a velocity."""
+    backwards = "flow_rate" in profile and float(np.nansum(profile["flow_rate"].to_numpy(dtype=float))) < 0
+    return backwards, profile[["position", column]].dropna().sort_values("position", ascending=not backwards,
+                                                                         kind="stable")
+
+
 def mixing_length_note(profile: pd.DataFrame, target: float, length: float, axis: str = "x") -> str | None:
     """What a mixing length read against the inflow (:func:`mixing_length`) does not say by itself:
     that it is an upper bound (the target met at the first section along the flow: the channel mixed at
@@ -236,9 +243,7 @@ def mixing_length_note(profile: pd.DataFrame, target: float, length: float, axis
     inflow was refused (:func:`cross_sections` warned of that)."""
     if "mixing_index_inflow" not in profile or not len(profile):
         return None
-    backwards = "flow_rate" in profile and float(np.nansum(profile["flow_rate"].to_numpy(dtype=float))) < 0
-    table = profile[["position", "mixing_index_inflow"]].dropna().sort_values("position", ascending=not backwards,
-                                                                           kind="stable")
+    _, table = _along_the_flow(profile, "mixing_index_inflow")
     if not len(table):
         return None
     x, m = table["position"].to_numpy(), table["mixing_index_inflow"].to_numpy()

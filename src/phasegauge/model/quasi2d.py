@@ -118,11 +118,11 @@ def _tilted(mesh: Mesh) -> tuple | None:
         return None  # normal to an axis: one_cell_thick's case (not one cell thick there)
     height = points @ normal
     tolerance = TILTED_PLANE_TOLERANCE * float(np.ptp(mesh.bounds, axis=0).max())  # the used points' extent
-    # a thick mesh has heights between its extremes everywhere: a strided share of them tells first
-    if not _on_two_planes(height[::_TILTED_STRIDE], 2 * tolerance):
-        return None
     lo, hi = float(height.min()), float(height.max())
-    if hi - lo <= tolerance or not _on_planes(height, lo, hi, tolerance):
+    # a few heights spread over the numbering first, as one_cell_thick probes: a thick mesh has some between
+    if hi - lo <= tolerance or not _on_planes(height[::max(1, height.size // _PROBE)], lo, hi, tolerance):
+        return None
+    if not _on_planes(height, lo, hi, tolerance):
         return None
     on_lo = np.zeros(mesh.n_points, dtype=bool)
     on_lo[used] = np.abs(height - lo) <= tolerance
@@ -132,17 +132,6 @@ def _tilted(mesh: Mesh) -> tuple | None:
     if normal[np.argmax(np.abs(normal))] < 0:
         normal = -normal
     return tuple(float(v) for v in normal), hi - lo
-
-
-#: every this many heights are tested first by :func:`_tilted` (a subset off two planes: the whole set is)
-_TILTED_STRIDE = 97
-
-
-def _on_two_planes(values: np.ndarray, tolerance: float) -> bool:
-    """True when every value lies within ``tolerance`` of the smallest or of the largest. Of a subset of
-    heights that lie within ``t`` of two planes' heights this holds with ``tolerance = 2 t`` (its own
-    extremes lie within ``t`` of them, or all its values near one): a subset failing it rejects the set."""
-    return not values.size or _on_planes(values, float(values.min()), float(values.max()), tolerance)
 
 
 def one_cell_thick(mesh: Mesh) -> Quasi2D | None:

@@ -267,7 +267,9 @@ def analyse_step(step, options, *, contour_dir: str | None = None, threads: int 
         m["coarsening_length"] = mixing.coarsening_length(mesh, ind.cell)
         m["interface_spacing"] = mixing.interface_spacing(mesh, ind.point, level=options.level, interface_size=size)
     if options.free_energy is not None:
-        m.update(_equilibrium(step, mesh, ind, options, size))
+        from ._phase_field import equilibrium_step
+
+        m.update(equilibrium_step(step, mesh, ind, options, size))
     if options.model is not None:  # a partially miscible mixture: bulk compositions against the model
         from ._mixture import mixture_step
 
@@ -398,14 +400,6 @@ def _interface_size(mesh, ind, options, m: dict, contour) -> float:
 
         contour = find_interface(mesh, ind.point, level=options.level)
     return float(np.sum(contour.element_sizes))
-
-
-def _equilibrium(step, mesh, ind, options, interface_size) -> dict:
-    """Chemical potential spread, free energy and tension of the field mapped through the range
-    (:func:`phasegauge.run._phase_field.equilibrium_step`)."""
-    from ._phase_field import equilibrium_step
-
-    return equilibrium_step(step, mesh, ind, options, interface_size)
 
 
 def _warn_periodic_look(mesh, ind, options, where: str) -> None:
