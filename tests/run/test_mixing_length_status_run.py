@@ -35,7 +35,9 @@ def _two_streams(x, y, kappa, images=6):
 
 def _exact_length(kappa, target=0.9, terms=200):
     n = np.arange(1, 2 * terms, 2)
-    index = lambda x: 1 - np.sqrt(np.sum(8 / (n * np.pi) ** 2 * np.exp(-2 * (n * np.pi) ** 2 * kappa * x)))  # noqa: E731
+    def index(x):
+        return 1 - np.sqrt(np.sum(8 / (n * np.pi) ** 2 * np.exp(-2 * (n * np.pi) ** 2 * kappa * x)))
+
     return optimize.brentq(lambda x: index(x) - target, 1e-3, 100.0)
 
 
@@ -111,3 +113,16 @@ def test_a_table_without_the_status_reads_a_length_as_reached_and_nan_as_not_rea
     lines = {line.get_label(): line for line in ax.lines}
     assert list(lines["reached"].get_xdata()) == [1.0] and list(lines["not reached"].get_xdata()) == [2.0]
     assert not any(label.startswith(("upper bound", "undefined")) for label in lines)
+
+
+def test_a_resumed_campaign_reads_the_status_back_from_each_runs_steps_csv():
+    # campaign_summary takes the word as steps.csv holds it; an empty cell (read back as NaN) is no status
+    import io
+
+    from phasegauge.run.campaign import campaign_summary
+
+    steps = pd.read_csv(io.StringIO("step,time,mixing_length,mixing_length_status\n0,0.0,0.5,upper_bound\n"))
+    assert campaign_summary(steps, {})["mixing_length_status"] == "upper_bound"
+    empty = pd.read_csv(io.StringIO("step,time,mixing_length,mixing_length_status\n0,0.0,,\n"))
+    assert campaign_summary(empty, {})["mixing_length_status"] is None
+    assert campaign_summary(steps.drop(columns="mixing_length_status"), {})["mixing_length_status"] is None
