@@ -298,8 +298,8 @@ def mixing_length_note(profile: pd.DataFrame, target: float, length: float, axis
     if not np.isfinite(length):
         best = int(np.argmax(m))
         return (f"no section meets the mixing target {target:g} (the highest mixing index against the inflow is "
-                f"{m[best]:.3g}, at {axis} = {x[best]:.6g}), so the mixing length is empty: not mixed to the target "
-                "within the sections; a longer channel, or a lower target (--mixing-target)")
+                f"{m[best]:.3g}, at {axis} = {x[best]:.6g}), so the mixing length is empty (not reached within the "
+                "sections): a longer channel, or a lower target (--mixing-target)")
     return None
 
 
