@@ -43,3 +43,13 @@ def test_the_fitted_steps_and_a_per_step_unit_are_shown():
                        "n_steps": 10, "note": "the steps store no times", "verdict": "interface keeps widening"})
     assert figures["diffusion audit fitted"] == "7 of 10 steps, from t = 3"
     assert figures["numerical diffusivity (length²/step)"] == 1e-5
+
+
+def test_the_mixing_length_is_given_with_its_status():
+    # a length met at the first section is an upper bound: the key figures say so beside the number
+    steps = pd.DataFrame({"time": [0.0, 1.0], "mixing_length": [0.5, 0.5],
+                          "mixing_length_status": ["upper_bound", "upper_bound"]})
+    figures = dict(_key_figures(SimpleNamespace(steps=steps, audit={})))
+    assert figures["mixing length, last step"] == 0.5
+    assert figures["mixing length status, last step"] == "upper_bound"
+    assert "mixing length status, last step" not in _labels({})

@@ -74,6 +74,11 @@ def test_a_column_neither_table_has_is_refused_before_measuring(tmp_path, monkey
         compare_runs(RunSpec(run, "alpha"), RunSpec(run, "alpha"), reference_table=str(table),
                      out=str(tmp_path / "out"))
     assert measured == [] and not (tmp_path / "out").exists()
+    # the mixing length's status is a steps.csv column of words: no number to check (pandas would not read
+    # 'reached' as a float)
+    table.write_text("quantity,time,value,tolerance\nmixing_length_status,1.0,0.5,0.01\n")
+    with pytest.raises(OptionError, match="names 'mixing_length_status', a steps.csv column of words"):
+        compare_runs(RunSpec(run, "alpha"), RunSpec(run, "alpha"), reference_table=str(table))
     table.write_text("quantity,time,value,tolerance,low\nmax:velocity_y,,0.24,0.01,0.23\n")
     with pytest.raises(OptionError, match="row 1 \\(max:velocity_y\\): only one of low and high given") as err:
         compare_runs(RunSpec(run, "alpha"), RunSpec(run, "alpha"), reference_table=str(table))

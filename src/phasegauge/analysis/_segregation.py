@@ -15,10 +15,15 @@ from ._labelling import _normalize_periodic
 from ._sums import dot
 
 
-__all__ = ["mixing_metrics", "mixing_length", "segregation_scale", "MIXED_RANGE"]
+__all__ = ["mixing_metrics", "mixing_length", "mixing_length_status", "segregation_scale", "MIXED_RANGE",
+           "MIXING_LENGTH_STATUSES"]
 
 #: c strictly between these counts as mixed in ``mixed_volume_fraction``
 MIXED_RANGE = (0.05, 0.95)
+#: what a mixing length is (:func:`mixing_length_status`, the ``mixing_length_status`` column): the target
+#: reached between two sections; met at the first section already (the length is an upper bound); met at no
+#: section (NaN: longer than the sections reach); no index to read it from (NaN: the inflow refused)
+MIXING_LENGTH_STATUSES = ("reached", "upper_bound", "not_reached", "undefined")
 
 
 def normalize_box(mesh: Mesh, box) -> np.ndarray:
@@ -186,10 +191,11 @@ def mixing_length(profile: pd.DataFrame, *, target: float = 0.9, reference: str 
         along the flow (from the highest position down when the net flow runs
         towards -axis; rising positions without a velocity), interpolated
         linearly between the last plane below ``target`` and the first plane
-        at or above it; the first position when that plane is already mixed;
-        NaN when no plane reaches ``target`` (or, against the inflow, when the
-        first section along the flow is of one phase: see
+        at or above it; the first position when that plane is already mixed
+        (an upper bound); NaN when no plane reaches ``target``, or when no plane
+        has an index (against the inflow: the inflow refused, see
         :func:`cross_sections`). Subtract the inlet position for a length (``ends``).
+        Which of these it is: :func:`mixing_length_status`.
 
     Raises
     ------
@@ -197,6 +203,43 @@ def mixing_length(profile: pd.DataFrame, *, target: float = 0.9, reference: str 
         Bad target, reference or weighting, a table without the needed columns, or
         ``reference='section', weighting='flow'`` on a profile computed without velocity.
     """
+    at, _, backwards = _read_mixing_length(profile, target, reference, weighting)
+    if ends is None or not np.isfinite(at):
+        return at
+    return float(ends[1]) - at if backwards else at - float(ends[0])
+
+
+def mixing_length_status(profile: pd.DataFrame, *, target: float = 0.9, reference: str = "inflow",
+                         weighting: str = "flow") -> str:
+    """What the :func:`mixing_length` of the same profile and arguments is, one of
+    :data:`MIXING_LENGTH_STATUSES`.
+
+    Parameters
+    ----------
+    profile, target, reference, weighting
+        As for :func:`mixing_length`.
+
+    Returns
+    -------
+    str
+        ``'reached'``: the target is reached between two sections (the length is interpolated there);
+        ``'upper_bound'``: the first section along the flow already meets it (the length is that section's,
+        an upper bound: the channel mixed at or before it); ``'not_reached'``: no section meets it (the length
+        is NaN: longer than the sections reach); ``'undefined'``: no section has a mixing index to read (the
+        length is NaN: against the inflow, the inflow was refused, see :func:`cross_sections`; or no sections).
+
+    Raises
+    ------
+    OptionError
+        As for :func:`mixing_length`.
+    """
+    return _read_mixing_length(profile, target, reference, weighting)[1]
+
+
+def _read_mixing_length(profile: pd.DataFrame, target: float, reference: str,
+                        weighting: str) -> tuple[float, str, bool]:
+    """The position where the mixing index first reaches ``target`` along the flow (see :func:`mixing_length`),
+    its status (:data:`MIXING_LENGTH_STATUSES`), and whether the net flow runs towards -axis."""
     if reference not in ("inflow", "section"):
         raise OptionError(f"reference must be 'inflow' or 'section', found {reference!r}",
                           fix="'inflow' measures each section against the whole inflow, 'section' against its own mean")
@@ -217,14 +260,15 @@ def mixing_length(profile: pd.DataFrame, *, target: float = 0.9, reference: str 
                           fix="pass velocity to cross_sections, or use weighting='area'")
     x = table["position"].to_numpy()
     m = table[column].to_numpy()
+    if not len(table):
+        return np.nan, "undefined", backwards
     reached = np.nonzero(m >= target)[0]
     if reached.size == 0:
-        return np.nan
+        return np.nan, "not_reached", backwards
     i = int(reached[0])
-    at = float(x[0]) if i == 0 else float(x[i - 1] + (target - m[i - 1]) / (m[i] - m[i - 1]) * (x[i] - x[i - 1]))
-    if ends is None:
-        return at
-    return float(ends[1]) - at if backwards else at - float(ends[0])
+    if i == 0:
+        return float(x[0]), "upper_bound", backwards
+    return float(x[i - 1] + (target - m[i - 1]) / (m[i] - m[i - 1]) * (x[i] - x[i - 1])), "reached", backwards
 
 
 def _along_the_flow(profile: pd.DataFrame, column: str) -> tuple[bool, pd.DataFrame]:
@@ -254,8 +298,8 @@ def mixing_length_note(profile: pd.DataFrame, target: float, length: float, axis
     if not np.isfinite(length):
         best = int(np.argmax(m))
         return (f"no section meets the mixing target {target:g} (the highest mixing index against the inflow is "
-                f"{m[best]:.3g}, at {axis} = {x[best]:.6g}), so the mixing length is empty: not mixed to the target "
-                "within the sections; a longer channel, or a lower target (--mixing-target)")
+                f"{m[best]:.3g}, at {axis} = {x[best]:.6g}), so the mixing length is empty (not reached within the "
+                "sections): a longer channel, or a lower target (--mixing-target)")
     return None
 
 

@@ -12,7 +12,7 @@ from ._canvas import new_figure, shared_time_origin, with_units
 from ._files import atomic_save_figure, atomic_write_csv, atomic_write_json, mark_complete
 from ._measure_report import manifest as run_manifest
 
-__all__ = ["write_campaign_report", "plot_campaign"]
+__all__ = ["write_campaign_report", "plot_campaign", "mixing_length_statuses"]
 
 _FIGURES = (("mixing_length", "mixing length"), ("mixing_index", "final mixing index"),
             ("phase_volume_drift", "final phase-volume drift"), ("interface_width", "final interface width"),
@@ -33,9 +33,13 @@ def plot_campaign(table, *, parameter: str = "parameter", unit: str = "", sectio
     mesh units, ``D_num`` in mesh units²/run's time units, per step where the runs' ``time_origins``
     are all ``index``: they store no times). ``D_num`` carries its standard error as an
     error bar, hollow where the run's audit finds it not distinguishable from 0 (``D_num_significant``
-    False). With ``sections`` (the runs measured
-    cross-sections), a run whose mixing length is NaN did not mix within the domain: a hollow
-    triangle at the top of the mixing-length panel, labelled "not reached".
+    False). The mixing-length panel draws each run by its ``mixing_length_status``: a line through the
+    lengths reached; a length met at the first section (``upper_bound``) as a bound, a downward triangle
+    at that section's distance, not joined to the line; and with ``sections`` (the runs measured
+    cross-sections) a run that did not reach the target within the domain (``not_reached``) as a hollow
+    upward triangle at the top of the panel, a length beyond it. A run whose mixing length is undefined
+    (its inflow refused) is drawn at no value: the legend names it. A table without the status column
+    (from an older run) takes a finite length for reached and NaN for not reached.
 
     Returns
     -------
@@ -57,10 +61,10 @@ def plot_campaign(table, *, parameter: str = "parameter", unit: str = "", sectio
         y = values[column]
         if column == "D_num":
             _plot_significance(ax, table, x, y)
+        elif column == "mixing_length":
+            _plot_mixing_length(ax, table, x, y, sections)
         else:
             ax.plot(x, y, marker="o")
-        if column == "mixing_length" and sections:
-            _mark_not_reached(ax, x, y)
         ax.set_xlim(*_span(x))
         ax.set_xlabel(xlabel)
         ax.set_title(_drift_title(table) if column == "phase_volume_drift" else label)
@@ -116,17 +120,44 @@ def _plot_significance(ax, table, x, y) -> None:
         ax.legend(fontsize="small")
 
 
-def _mark_not_reached(ax, x, y) -> None:
-    """A hollow triangle at the top of the panel for each run that did not reach the mixing target."""
-    missing = ~np.isfinite(y)
-    if not missing.any():
-        return
-    finite = y[~missing]
-    top = 1.1 * float(finite.max()) if len(finite) and finite.max() > 0 else 1.0
-    ax.plot(x[missing], np.full(int(missing.sum()), top), linestyle="none", marker="^", markersize=9,
-            markerfacecolor="none", label="not reached")
-    ax.set_ylim(bottom=0.0, top=1.15 * top)
-    ax.legend(fontsize="small")
+def mixing_length_statuses(table) -> np.ndarray:
+    """Each run's ``mixing_length_status`` (``reached``, ``upper_bound``, ``not_reached``, ``undefined``);
+    where the table has none (a run measured before the column was written, or an empty cell), ``reached``
+    for a finite length and ``not_reached`` for NaN."""
+    length = _column(table, "mixing_length")
+    guess = np.where(np.isfinite(length), "reached", "not_reached").astype(object)
+    if "mixing_length_status" not in table:
+        return guess
+    given = [value if isinstance(value, str) and value else None for value in table["mixing_length_status"]]
+    return np.array([g if g is not None else d for g, d in zip(given, guess)], dtype=object)
+
+
+def _plot_mixing_length(ax, table, x, y, sections: bool) -> None:
+    """The mixing length of each run by its status (see :func:`plot_campaign`); a legend where any run's
+    length is not simply reached."""
+    status = mixing_length_statuses(table)
+    reached = (status == "reached") & np.isfinite(y)
+    bound = (status == "upper_bound") & np.isfinite(y)
+    missing = (status == "not_reached") if sections else np.zeros(len(y), dtype=bool)
+    undefined = status == "undefined"
+    line, = ax.plot(x[reached], y[reached], marker="o", label="reached")
+    color = line.get_color()
+    if bound.any():
+        ax.plot(x[bound], y[bound], linestyle="none", marker="v", markersize=9, color=color,
+                label="upper bound (mixed by the first section)")
+    if missing.any():
+        drawn = y[reached | bound]
+        top = 1.1 * float(drawn.max()) if len(drawn) and drawn.max() > 0 else 1.0
+        ax.plot(x[missing], np.full(int(missing.sum()), top), linestyle="none", marker="^", markersize=9,
+                markerfacecolor="none", markeredgecolor=color, label="not reached")
+        ax.set_ylim(top=1.15 * top)
+    if undefined.any():  # no value to draw: the legend names the runs
+        runs = [str(r) for r in np.asarray(table["run"])[undefined]] if "run" in table else \
+            [f"{p:g}" for p in x[undefined]]
+        ax.plot([], [], linestyle="none", label="undefined (inflow refused): " + ", ".join(runs))
+    if bound.any() or missing.any() or undefined.any():
+        ax.set_ylim(bottom=0.0)
+        ax.legend(fontsize="small")
 
 
 def _span(x: np.ndarray) -> tuple:

@@ -199,6 +199,9 @@ def _key_figures(result, time_origin: str | None = None) -> list:
     add("mixing index, last step", "mixing_index", lambda v: v[-1])
     add("mixing length, first step", "mixing_length", lambda v: v[0])
     add("mixing length, last step", "mixing_length", lambda v: v[-1])
+    status = steps["mixing_length_status"].iloc[-1] if "mixing_length_status" in steps and len(steps) else None
+    if isinstance(status, str):  # reached, upper_bound (the length a bound), not_reached or undefined
+        pairs.append(("mixing length status, last step", status))
     def last_finite(values):
         return values[np.isfinite(values)][-1]
 

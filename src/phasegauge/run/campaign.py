@@ -27,7 +27,8 @@ __all__ = ["CampaignResult", "run_campaign", "campaign_summary", "campaign_warni
 #: the run's last measured step (whose time is ``time``), "any" whether any step has it, "audit" the run's
 #: diffusion audit
 SUMMARY_FIGURES = (("time", "time", "last"),
-                   ("mixing_length", "mixing_length", "last"), ("mixing_index", "mixing_index", "last"),
+                   ("mixing_length", "mixing_length", "last"), ("mixing_length_status", "mixing_length_status", "last"),
+                   ("mixing_index", "mixing_index", "last"),
                    ("phase_volume_drift", "phase_volume_drift", "last"),
                    ("phase_volume_drift_closed", "phase_volume_drift_closed", "last"),
                    ("open_boundary", "open_boundary", "any"),
@@ -57,7 +58,9 @@ def campaign_summary(steps, audit: dict, skipped=()) -> dict:
 
     ``skipped`` lists the steps the run left out (``MeasureResult.skipped``): their number is
     ``skipped_steps``; ``steps`` the number it measured. ``open_boundary`` and ``D_num_significant``
-    are True or False (None where the run has no velocity or no diffusion audit).
+    are True or False (None where the run has no velocity or no diffusion audit); ``mixing_length_status``
+    is a word of :data:`~phasegauge.analysis.mixing.MIXING_LENGTH_STATUSES` (None where the run has no
+    mixing length).
     """
     out = {}
     for column, source, how in SUMMARY_FIGURES:
@@ -69,7 +72,9 @@ def campaign_summary(steps, audit: dict, skipped=()) -> dict:
             value = bool(steps[source].astype(bool).any())
         else:
             value = steps[source].iloc[-1]
-        if isinstance(value, (bool, np.bool_)):
+        if column == "mixing_length_status":  # a word, read back from steps.csv as a word or, empty, as NaN
+            out[column] = value if isinstance(value, str) and value else None
+        elif isinstance(value, (bool, np.bool_)):
             out[column] = bool(value)
         elif column in ("open_boundary", "D_num_significant"):
             out[column] = None

@@ -313,6 +313,11 @@ def _checked_reference_table(path):
     # (the analyses' own column constants too: a column added there is known here without a copy)
     known = set(STEP_COLUMNS + MORE_STEP_COLUMNS + METRIC_KEYS + EQUILIBRIUM_KEYS + LEVEL_SET_COLUMNS
                 + MIXTURE_COLUMNS + SOLUTE_COLUMNS + TABLE_COLUMNS + ("track",))
+    words = [c for c in reference_columns(table) if c == "mixing_length_status"]
+    if words:  # a column of words: no value to check against a band
+        raise OptionError(f"the reference table names {words[0]!r}, a steps.csv column of words (reached, "
+                          "upper_bound, not_reached, undefined), not of numbers", where=os.fspath(path),
+                          fix="name a column of numbers, such as mixing_length")
     unknown = [c for c in reference_columns(table) if c not in known]
     if unknown:
         raise OptionError(f"the reference table names {', '.join(map(repr, unknown))}, neither a steps.csv column "

@@ -106,8 +106,8 @@ MORE_STEP_COLUMNS = ("depth", "interface_eps", "width_threshold_free", "interfac
                      "region_volume", "domain_volume", "nonfinite_volume", "nonfinite_values", "boundary_outflow",
                      "boundary_phase_outflow", "open_boundary", "open_boundary_area",
                      "boundary_phase_outflow_unknown", "phase_volume_outflow", "phase_volume_drift_closed",
-                     "phase_mass", "other_mass", "total_mass", "mixing_length", "coarsening_length",
-                     "interface_spacing", "segregation_scale")
+                     "phase_mass", "other_mass", "total_mass", "mixing_length", "mixing_length_status",
+                     "coarsening_length", "interface_spacing", "segregation_scale")
 
 
 @accept_old_names

@@ -254,6 +254,7 @@ def analyse_step(step, options, *, contour_dir: str | None = None, threads: int 
             # measured from the end of the mesh the flow enters by
             ends = tuple(float(e) for e in mesh.bounds[:, AXIS_INDEX[options.section_axis]])
             m["mixing_length"] = mixing.mixing_length(profile, target=options.mixing_target, ends=ends)
+            m["mixing_length_status"] = mixing.mixing_length_status(profile, target=options.mixing_target)
             note = mixing.mixing_length_note(profile, options.mixing_target, m["mixing_length"],
                                              options.section_axis)
             if note:
