@@ -186,6 +186,34 @@ def test_a_turned_slab_far_from_the_origin_and_with_unused_points_is_found():
     assert tilted_slab(Mesh(lifted, [(b.cell_type, b.connectivity) for b in slab.blocks])) is None
 
 
+@pytest.mark.parametrize("offset", [0.0, 10.0, 100.0, 1000.0])
+def test_a_turned_slab_with_single_precision_points_is_found(tmp_path, offset):
+    """A slab turned by 30 degrees whose points are stored as float32 (the ParaView/VTK default): at
+    |x| = 100 a float32 number is placed only to 7.6e-6 (numpy's spacing), above 1e-6 of the extent, and
+    the slab went unnoticed (measured as 3D with no warning) from offset 100 on. Analytic: the turned z
+    axis and the extrusion's depth, to the float32 rounding; a turned slab two cells thick is still none."""
+    import meshio
+
+    from phasegauge.io import Series
+    from phasegauge.model.mesh import Mesh
+    from phasegauge.model.quasi2d import tilted_slab
+
+    assert np.spacing(np.float32(100.0)) == pytest.approx(7.63e-6, rel=1e-3)  # numpy: 2^-17
+    slab, turn = _turned(grid_mesh((20, 20, 1), [(0, 1), (0, 1), (0, 0.05)]), 30)
+    single = (slab.points + offset).astype(np.float32)
+    normal, depth = tilted_slab(Mesh(single.astype(np.float64), [(b.cell_type, b.connectivity) for b in slab.blocks]))
+    np.testing.assert_allclose(normal, turn @ [0, 0, 1], atol=1e-5)
+    assert depth == pytest.approx(0.05, abs=4 * float(np.spacing(np.float32(offset + 1.5))))
+    # the same points through a file written in single precision
+    path = str(tmp_path / "slab.vtu")
+    meshio.Mesh(single, [(b.cell_type, b.connectivity) for b in slab.blocks]).write(path)
+    mesh = Series(path).read(0).mesh
+    assert mesh.n_points == slab.n_points and tilted_slab(mesh) is not None
+    thick, _ = _turned(grid_mesh((20, 20, 2), [(0, 1), (0, 1), (0, 0.1)]), 30)
+    points = (thick.points + offset).astype(np.float32).astype(np.float64)
+    assert tilted_slab(Mesh(points, [(b.cell_type, b.connectivity) for b in thick.blocks])) is None
+
+
 def test_measure_says_a_turned_slab_is_measured_as_3d(tmp_path):
     import warnings
 
