@@ -228,3 +228,27 @@ def test_measure_says_a_turned_slab_is_measured_as_3d(tmp_path):
     assert [w for w in turned_run.warnings if "one cell thick" in w and "measured as 3D" in w]
     assert not [w for w in axis_run.warnings if "one cell thick" in w]
     assert "depth" in axis_run.steps and "depth" not in turned_run.steps
+
+
+def test_the_turned_slab_warning_names_its_file_and_step(tmp_path):
+    # the warning of measure's per-step rule (as_measured, through run.step.flatten_step) named no place:
+    # it now names the step's file and step, as inspect's (the same helper) does
+    import types
+
+    from phasegauge.errors import MeshWarning
+    from phasegauge.io import Series
+    from phasegauge.io.describe import describe_series
+    from phasegauge.run.step import flatten_step
+
+    turned, _ = _turned(grid_mesh((8, 8, 1), [(0, 1), (0, 1), (0, 0.05)]), 30)
+    path = str(tmp_path / "turned.vtu")
+    to_meshio(turned, cell_data={"c": np.zeros(turned.n_cells)}).write(path)
+    step = Series(path).read(0)
+    with pytest.warns(MeshWarning, match="not normal to x, y or z") as caught:
+        same, flat = flatten_step(step, types.SimpleNamespace(keep_3d=False))
+    assert same is step and flat is None
+    places = [w.message.where for w in caught if "not normal to x, y or z" in w.message.what]
+    assert places == ["turned.vtu, step 0"] and step.info.where == places[0]
+    # inspect gives its warnings collapsed over steps, each line led by its place
+    lines = [line for line in describe_series(path)["warnings"] if "not normal to x, y or z" in line]
+    assert len(lines) == 1 and lines[0].startswith("turned.vtu, step 0: the mesh is one cell thick")

@@ -139,12 +139,9 @@ def _describe(series, scan: str) -> dict:
     if overlap is not None:
         warnings.warn(MeshWarning(f"{overlap}; measure refuses this mesh", where=first.info.where), stacklevel=3)
     sizes = mesh.cell_sizes
-    from ..model.quasi2d import one_cell_thick, tilted_slab, tilted_slab_words
+    from ..model.quasi2d import as_measured
 
-    flat = one_cell_thick(mesh)
-    tilted = tilted_slab(mesh) if flat is None and mesh.dimension == 3 else None
-    if tilted is not None:
-        warnings.warn(MeshWarning(tilted_slab_words(tilted), where=first.info.where), stacklevel=3)
+    flat = as_measured(mesh, where=first.info.where)  # (and the warning on a slab between turned planes)
     from ..model._wedge_sector import wedge_sector
 
     sector = wedge_sector(mesh)

@@ -72,10 +72,12 @@ class Quasi2D:
         return {"dimension": 2, "quasi_2d": True, "thin_axis": self.axis_name, "depth": float(self.depth)}
 
 
-def as_measured(mesh: Mesh, *, keep_3d: bool = False) -> Quasi2D | None:
+def as_measured(mesh: Mesh, *, keep_3d: bool = False, where: str = "") -> Quasi2D | None:
     """The :class:`Quasi2D` record of a mesh as measure reads it: a 3D mesh one cell thick is measured
     on the 2D mesh of its lower plane, per unit depth, unless ``keep_3d``; None where it is read as it
-    is (2D, thicker, or ``keep_3d``). The one rule for measure, compare and the convergence sizes."""
+    is (2D, thicker, or ``keep_3d``). The one rule for measure, compare, the convergence sizes and
+    ``inspect``; a slab one cell thick between turned planes (:func:`tilted_slab`) is warned of
+    (:class:`~phasegauge.errors.MeshWarning` naming ``where``, the file and step)."""
     if keep_3d or mesh.dimension != 3:
         return None
     flat = one_cell_thick(mesh)
@@ -86,7 +88,7 @@ def as_measured(mesh: Mesh, *, keep_3d: bool = False) -> Quasi2D | None:
 
             from ..errors import MeshWarning
 
-            warnings.warn(MeshWarning(tilted_slab_words(tilted)), stacklevel=2)
+            warnings.warn(MeshWarning(tilted_slab_words(tilted), where=where), stacklevel=2)
     return flat
 
 

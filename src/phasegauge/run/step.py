@@ -164,7 +164,7 @@ def flatten_step(step, options):
 
     from ..model.quasi2d import as_measured
 
-    flat = as_measured(step.mesh, keep_3d=getattr(options, "keep_3d", False))
+    flat = as_measured(step.mesh, keep_3d=getattr(options, "keep_3d", False), where=step.info.where)
     if flat is None:
         return step, None
     fields = replace(step.fields, point_data={name: np.asarray(values)[flat.points]
