@@ -214,18 +214,10 @@ def _without_patches(pieces: list, named: tuple, path: str) -> list:
     from ..errors import BlocksLeftOutNote
 
     names = [name or os.path.splitext(os.path.basename(file))[0] for (name, file), d in zip(named, dims) if d < top]
-    warnings.warn(BlocksLeftOutNote(f"{LEFT_OUT_WORDS}{', '.join(names)} {PATCH_WORDS}", where=path), stacklevel=3)
+    warnings.warn(BlocksLeftOutNote(f"multiblock blocks left out: {', '.join(names)} (boundary patches written as "
+                                    "cells of lower dimension than the volume's; the volume blocks are read)",
+                                    where=path, names=names), stacklevel=3)
     return [p if d == top else None for p, d in zip(pieces, dims)]
-
-
-#: how the blocks left out as boundary patches are said: the words before their names, and after
-LEFT_OUT_WORDS = "multiblock blocks left out: "
-PATCH_WORDS = "(boundary patches written as cells of lower dimension than the volume's; the volume blocks are read)"
-
-
-def left_out_names(what: str) -> list:
-    """The block names in the text of a :class:`~phasegauge.errors.BlocksLeftOutNote`."""
-    return what[len(LEFT_OUT_WORDS):].replace(PATCH_WORDS, "").strip().split(", ")
 
 
 def _owned_cells(piece):

@@ -64,10 +64,8 @@ def describe_series(path, *, scan: str = "auto", sort_by_time: bool = False) -> 
             series.close()
     records = [(w.category, getattr(w.message, "what", str(w.message)), getattr(w.message, "where", ""))
                for w in caught if issubclass(w.category, PhasegaugeWarning)]
-    from ._multiblock import left_out_names
-
-    patches = [name for category, what, _ in records if issubclass(category, BlocksLeftOutNote)
-               for name in left_out_names(what)]  # blocks of faces in a volume format: left out as .vtp ones
+    patches = [name for w in caught if isinstance(w.message, BlocksLeftOutNote)
+               for name in w.message.names]  # blocks of faces in a volume format: left out as .vtp ones
     records = [rec for rec in records if not issubclass(rec[0], BlocksLeftOutNote)]
     desc["blocks_left_out"] = list(dict.fromkeys(desc["blocks_left_out"] + patches))
     records += [(SkippedStepWarning, f"{err.what}; {err.fix}", err.where)
