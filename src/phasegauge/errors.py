@@ -199,7 +199,14 @@ class MeshWarning(PhasegaugeWarning):
 class BlocksLeftOutNote(MeshWarning):
     """Blocks of a multiblock file left out as boundary patches (volume-format files of faces only): said
     where the polygon-data patches left out are said (an info line of a run, ``inspect``'s left-out blocks),
-    not as a finding."""
+    not as a finding. ``names``: the blocks' names, as the file names them (read from here, not the text)."""
+
+    def __init__(self, what: str = "", where: str = "", names=()):
+        self.names = tuple(str(name) for name in names)
+        super().__init__(what, where)
+
+    def __reduce__(self):
+        return (type(self), (self.what, self.where, self.names))
 
 
 class OldNameWarning(PhasegaugeWarning, FutureWarning):

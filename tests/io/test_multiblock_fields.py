@@ -206,3 +206,42 @@ def test_the_listing_line_offered_keeps_the_vtm_time_exactly(tmp_path):
     line = caught.value.fix.split("as '")[1].split("'")[0]
     assert line == f"{vtk_time!r},case_0/case_0_0.vtu"
     assert float(line.split(",")[0]) == vtk_time  # reads back as the same number
+
+
+def test_a_step_read_parses_its_vtm_once_and_decodes_its_time_once(tmp_path, monkeypatch):
+    # the .vtm was parsed for its blocks, again for its own time, and again for each field a block lacks
+    # (the fix's listing line), its binary time decoded through VTK's reader each time: 4 parses, 3 decodes
+    import xml.etree.ElementTree as ET
+
+    from phasegauge.io import _multiblock
+
+    fluid, solid = _region(0.0), _region(0.5)
+    del solid.cell_data["alpha"]
+    solid.cell_data["T"] = np.ones(solid.n_cells)
+    regions = pyvista.MultiBlock()
+    regions["fluid"], regions["solid"] = fluid, solid
+    regions.field_data["TimeValue"] = [0.25]
+    path = tmp_path / "case_0.vtm"
+    regions.save(path)  # the time in binary (VTK's writer)
+    vtk_time = float(pyvista.read(path).field_data["TimeValue"][0])  # VTK's reader [lib]
+    series = Series(path)
+    counts = {"parse": 0, "decode": 0}
+    parse, decode = ET.parse, _multiblock._decoded_field_data
+
+    def counted_parse(source, *args, **kwargs):
+        counts["parse"] += str(source).endswith(".vtm")
+        return parse(source, *args, **kwargs)
+
+    def counted_decode(*args, **kwargs):
+        counts["decode"] += 1
+        return decode(*args, **kwargs)
+
+    monkeypatch.setattr(ET, "parse", counted_parse)
+    monkeypatch.setattr(_multiblock, "_decoded_field_data", counted_decode)
+    step = series.read(0)
+    assert counts == {"parse": 1, "decode": 1}
+    assert step.time == vtk_time
+    for field, block in (("alpha", 0), ("T", 1)):  # each lost field's fix keeps the .vtm's time
+        with pytest.raises(FieldNotFoundError) as caught:
+            select_field(step.fields, field, where=step.info.where)
+        assert f"'{vtk_time!r},case_0/case_0_{block}.vtu'" in caught.value.fix

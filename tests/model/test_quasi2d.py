@@ -186,6 +186,34 @@ def test_a_turned_slab_far_from_the_origin_and_with_unused_points_is_found():
     assert tilted_slab(Mesh(lifted, [(b.cell_type, b.connectivity) for b in slab.blocks])) is None
 
 
+@pytest.mark.parametrize("offset", [0.0, 10.0, 100.0, 1000.0])
+def test_a_turned_slab_with_single_precision_points_is_found(tmp_path, offset):
+    """A slab turned by 30 degrees whose points are stored as float32 (the ParaView/VTK default): at
+    |x| = 100 a float32 number is placed only to 7.6e-6 (numpy's spacing), above 1e-6 of the extent, and
+    the slab went unnoticed (measured as 3D with no warning) from offset 100 on. Analytic: the turned z
+    axis and the extrusion's depth, to the float32 rounding; a turned slab two cells thick is still none."""
+    import meshio
+
+    from phasegauge.io import Series
+    from phasegauge.model.mesh import Mesh
+    from phasegauge.model.quasi2d import tilted_slab
+
+    assert np.spacing(np.float32(100.0)) == pytest.approx(7.63e-6, rel=1e-3)  # numpy: 2^-17
+    slab, turn = _turned(grid_mesh((20, 20, 1), [(0, 1), (0, 1), (0, 0.05)]), 30)
+    single = (slab.points + offset).astype(np.float32)
+    normal, depth = tilted_slab(Mesh(single.astype(np.float64), [(b.cell_type, b.connectivity) for b in slab.blocks]))
+    np.testing.assert_allclose(normal, turn @ [0, 0, 1], atol=1e-5)
+    assert depth == pytest.approx(0.05, abs=4 * float(np.spacing(np.float32(offset + 1.5))))
+    # the same points through a file written in single precision
+    path = str(tmp_path / "slab.vtu")
+    meshio.Mesh(single, [(b.cell_type, b.connectivity) for b in slab.blocks]).write(path)
+    mesh = Series(path).read(0).mesh
+    assert mesh.n_points == slab.n_points and tilted_slab(mesh) is not None
+    thick, _ = _turned(grid_mesh((20, 20, 2), [(0, 1), (0, 1), (0, 0.1)]), 30)
+    points = (thick.points + offset).astype(np.float32).astype(np.float64)
+    assert tilted_slab(Mesh(points, [(b.cell_type, b.connectivity) for b in thick.blocks])) is None
+
+
 def test_measure_says_a_turned_slab_is_measured_as_3d(tmp_path):
     import warnings
 
@@ -200,3 +228,27 @@ def test_measure_says_a_turned_slab_is_measured_as_3d(tmp_path):
     assert [w for w in turned_run.warnings if "one cell thick" in w and "measured as 3D" in w]
     assert not [w for w in axis_run.warnings if "one cell thick" in w]
     assert "depth" in axis_run.steps and "depth" not in turned_run.steps
+
+
+def test_the_turned_slab_warning_names_its_file_and_step(tmp_path):
+    # the warning of measure's per-step rule (as_measured, through run.step.flatten_step) named no place:
+    # it now names the step's file and step, as inspect's (the same helper) does
+    import types
+
+    from phasegauge.errors import MeshWarning
+    from phasegauge.io import Series
+    from phasegauge.io.describe import describe_series
+    from phasegauge.run.step import flatten_step
+
+    turned, _ = _turned(grid_mesh((8, 8, 1), [(0, 1), (0, 1), (0, 0.05)]), 30)
+    path = str(tmp_path / "turned.vtu")
+    to_meshio(turned, cell_data={"c": np.zeros(turned.n_cells)}).write(path)
+    step = Series(path).read(0)
+    with pytest.warns(MeshWarning, match="not normal to x, y or z") as caught:
+        same, flat = flatten_step(step, types.SimpleNamespace(keep_3d=False))
+    assert same is step and flat is None
+    places = [w.message.where for w in caught if "not normal to x, y or z" in w.message.what]
+    assert places == ["turned.vtu, step 0"] and step.info.where == places[0]
+    # inspect gives its warnings collapsed over steps, each line led by its place
+    lines = [line for line in describe_series(path)["warnings"] if "not normal to x, y or z" in line]
+    assert len(lines) == 1 and lines[0].startswith("turned.vtu, step 0: the mesh is one cell thick")

@@ -77,11 +77,20 @@ def multiblock_blocks(path: str) -> MultiblockBlocks:
         Not a VTK XML multiblock file, or one that names no volume block.
     """
     path = os.fspath(path)
+    return _blocks_of(_index_root(path), path)
+
+
+def _index_root(path: str):
+    """The parsed XML root of an index file (a multiblock or parallel file)."""
     try:
-        root = ET.parse(path).getroot()
+        return ET.parse(path).getroot()
     except (ET.ParseError, OSError) as exc:
         raise UnreadableFileError(f"cannot be read as a VTK multiblock file ({exc})", where=path,
                                   fix="check that the file is complete XML (it may be truncated)") from None
+
+
+def _blocks_of(root, path: str) -> MultiblockBlocks:
+    """:func:`multiblock_blocks` of the file's parsed root."""
     kinds = ("vtkMultiBlockDataSet", "vtkMultiPieceDataSet") + _PARALLEL_TYPES
     if root.tag != "VTKFile" or root.get("type") not in kinds:
         raise UnreadableFileError(f"is not a VTK XML multiblock or parallel file (its root is <{root.tag} "
@@ -140,13 +149,16 @@ def read_multiblock(path: str):
     from ..model.polyhedra import joined_centres
     from ._meshio_adapter import file_rows, new_mesh
 
-    blocks = multiblock_blocks(path)
+    path = os.fspath(path)
+    root = _index_root(path)  # parsed once: the blocks and the file's own time
+    blocks = _blocks_of(root, path)
+    own = _own_time_of(root)
     pieces = [read_mesh_file(_volume_file(path, file)) for _, file in blocks.volume]
     pieces = _without_patches(pieces, blocks.volume, path)
     named = [block for block, piece in zip(blocks.volume, pieces) if piece is not None]
     pieces = [piece for piece in pieces if piece is not None]
     if len(pieces) == 1:
-        return _with_own_time(pieces[0], path, named[0][0])
+        return _with_own_time(pieces[0], path, named[0][0], own)
     # each block's file numbers counted on by all the cells of the block files before it, ghost cells
     # included (taken before they go): a cell's number less its block's offset is its row in its file
     sizes = [max((int(r.max()) + 1 for r in file_rows(piece) if len(r)), default=0) for piece in pieces]
@@ -167,8 +179,9 @@ def read_multiblock(path: str):
                  for name in pieces[0].cell_data if _shared(pieces, "cell_data", name)}
     joined = new_mesh(points, cells, point_data=point_data, cell_data=cell_data,
                       field_data=dict(pieces[0].field_data or {}))
-    joined.fields_left_out, joined.cell_copies_left_out = fields_left_out(pieces, named, path, point_data, cell_data)
-    joined = _with_own_time(joined, path, named[0][0])
+    joined.fields_left_out, joined.cell_copies_left_out = fields_left_out(pieces, named, path, point_data, cell_data,
+                                                                          own=own)
+    joined = _with_own_time(joined, path, named[0][0], own)
     joined.block_sizes = block_sizes  # points merged across blocks are the join, not duplicates
     joined.cell_rows = rows
     joined.single_precision_points = single
@@ -201,18 +214,10 @@ def _without_patches(pieces: list, named: tuple, path: str) -> list:
     from ..errors import BlocksLeftOutNote
 
     names = [name or os.path.splitext(os.path.basename(file))[0] for (name, file), d in zip(named, dims) if d < top]
-    warnings.warn(BlocksLeftOutNote(f"{LEFT_OUT_WORDS}{', '.join(names)} {PATCH_WORDS}", where=path), stacklevel=3)
+    warnings.warn(BlocksLeftOutNote(f"multiblock blocks left out: {', '.join(names)} (boundary patches written as "
+                                    "cells of lower dimension than the volume's; the volume blocks are read)",
+                                    where=path, names=names), stacklevel=3)
     return [p if d == top else None for p, d in zip(pieces, dims)]
-
-
-#: how the blocks left out as boundary patches are said: the words before their names, and after
-LEFT_OUT_WORDS = "multiblock blocks left out: "
-PATCH_WORDS = "(boundary patches written as cells of lower dimension than the volume's; the volume blocks are read)"
-
-
-def left_out_names(what: str) -> list:
-    """The block names in the text of a :class:`~phasegauge.errors.BlocksLeftOutNote`."""
-    return what[len(LEFT_OUT_WORDS):].replace(PATCH_WORDS, "").strip().split(", ")
 
 
 def _owned_cells(piece):
@@ -297,12 +302,14 @@ def seams_made_equal(points: list, *, single_precision: bool = False) -> np.ndar
     return joined
 
 
-def fields_left_out(pieces: list, named: list, path: str, point_data: dict, cell_data: dict) -> tuple:
+def fields_left_out(pieces: list, named: list, path: str, point_data: dict, cell_data: dict, *,
+                    own: dict | None = None) -> tuple:
     """The fields some blocks hold and the joined mesh does not (not held by every block, or with other
     components), each with why and the fix: ``{name: (why, fix)}``, which the message of a field not
     found gives; and the fields whose copy on cells is left out while their copy on points is kept,
     ``{name: why}``: :func:`phasegauge.model.fields.named_field` warns when it reads that point copy in
-    place of the cell copy it prefers (a point copy left out is not said: the cell copy is read anyway)."""
+    place of the cell copy it prefers (a point copy left out is not said: the cell copy is read anyway).
+    ``own``: the multiblock file's own time (:func:`own_time`) where the caller has it already."""
     names = [(name or os.path.splitext(os.path.basename(file))[0]) for name, file in named]
     if len(set(names)) < len(names):  # datasets named alike in several regions: named by their files
         names = [os.path.relpath(file, os.path.dirname(os.path.abspath(path))) for _, file in named]
@@ -314,7 +321,7 @@ def fields_left_out(pieces: list, named: list, path: str, point_data: dict, cell
                  for f in on["cells"][block] | on["points"][block]}
         return f"{names[block]}: " + (", ".join(f"{f} on {w}" for f, w in sorted(where.items())) or "no fields")
 
-    shown = "; ".join(held(k) for k in range(len(pieces)))
+    shown = None  # every block's fields, said only where a field is lost
     out, swapped = {}, {}
     for field in sorted(set().union(*on["cells"], *on["points"])):
         lost = [w for w in ("cells", "points") if any(field in h for h in on[w]) and field not in joined[w]]
@@ -322,6 +329,7 @@ def fields_left_out(pieces: list, named: list, path: str, point_data: dict, cell
             continue
         where = lost[0]
         having = [k for k, h in enumerate(on[where]) if field in h]
+        shown = shown or "; ".join(held(k) for k in range(len(pieces)))
         if len(having) == len(pieces):
             why = f"the blocks hold it on {where} with different components ({shown})"
             fix = "write it with the same components in every block"
@@ -329,7 +337,7 @@ def fields_left_out(pieces: list, named: list, path: str, point_data: dict, cell
             lacking = [names[k] for k in range(len(pieces)) if k not in having]
             why = (f"block{'s' if len(lacking) > 1 else ''} {', '.join(lacking)} of the multiblock file "
                    f"hold{'' if len(lacking) > 1 else 's'} no '{field}' on {where} ({shown})")
-            fix = _holding_blocks_fix(path, [named[k][1] for k in having], [names[k] for k in having])
+            fix = _holding_blocks_fix(path, [named[k][1] for k in having], [names[k] for k in having], own)
         kept = "points" if where == "cells" else "cells"
         if field in joined[kept]:
             if where == "cells":
@@ -339,15 +347,16 @@ def fields_left_out(pieces: list, named: list, path: str, point_data: dict, cell
     return out, swapped
 
 
-def _holding_blocks_fix(path: str, files: list, names: list) -> str:
+def _holding_blocks_fix(path: str, files: list, names: list, own: dict | None = None) -> str:
     """How to measure only the blocks of a multiblock step that hold a field: a glob of one block's files
-    would make each other block a step, and would lose the time the ``.vtm`` files store."""
+    would make each other block a step, and would lose the time the ``.vtm`` files store (``own``, the
+    file's :func:`own_time`, read here when not given)."""
     from ._formats import time_from_field_data
 
     copies = f"copies of the .vtm files naming only block{'s' if len(names) > 1 else ''} {', '.join(names)}"
     if len(files) > 1:
         return f"measure the blocks holding it alone: give {copies} (each keeps its step's time)"
-    time = time_from_field_data(own_time(path), path)
+    time = time_from_field_data(own_time(path) if own is None else own, path)
     if time is None:  # the block files' own times (or none) are the steps'
         return (f"measure the block holding it alone: give its files as a quoted glob (such as "
                 f"'{os.path.relpath(files[0])}' with a * for the step), or {copies}")
@@ -375,12 +384,17 @@ def own_time(path: str, *, decode: bool = True):
     it stores none, and :data:`~phasegauge.io._formats.TIME_NEEDS_FULL_READ` when the value is stored in binary
     and ``decode`` is False. Binary values are decoded by VTK's own multiblock reader, given the file without
     its blocks (so that no block is read). Parallel files (``.pvtu``) store no time of their own here."""
-    from ._formats import TIME_ARRAY_NAMES, TIME_NEEDS_FULL_READ
-
     try:
         root = ET.parse(path).getroot()
     except (ET.ParseError, OSError):
         return {}
+    return _own_time_of(root, decode=decode)
+
+
+def _own_time_of(root, *, decode: bool = True):
+    """:func:`own_time` of the file's parsed root (left unchanged)."""
+    from ._formats import TIME_ARRAY_NAMES, TIME_NEEDS_FULL_READ
+
     if root.get("type") not in ("vtkMultiBlockDataSet", "vtkMultiPieceDataSet"):
         return {}
     arrays = {a.get("Name"): a for field in root.findall("FieldData") for a in field.findall("DataArray")}
@@ -403,19 +417,21 @@ def own_time(path: str, *, decode: bool = True):
 
 def _decoded_field_data(root, name: str) -> dict:
     """The field-data array ``name`` of a multiblock file's own ``<FieldData>``, decoded by VTK's multiblock
-    reader from a copy of the file without its blocks; {} when VTK cannot read it."""
+    reader from a copy of the file without its blocks (``root`` left unchanged); {} when VTK cannot read it."""
     import tempfile
 
     from vtkmodules.util.numpy_support import vtk_to_numpy
     from vtkmodules.vtkIOXML import vtkXMLMultiBlockDataReader
 
+    bare = ET.Element(root.tag, root.attrib)
     for node in root:
-        if node.tag != "FieldData":
-            for block in list(node):
-                node.remove(block)
+        kept = ET.SubElement(bare, node.tag, node.attrib)
+        kept.text, kept.tail = node.text, node.tail
+        if node.tag == "FieldData":
+            kept.extend(node)  # (the arrays themselves are shared, not changed)
     with tempfile.TemporaryDirectory() as folder:
         copy = os.path.join(folder, "time.vtm")
-        ET.ElementTree(root).write(copy)
+        ET.ElementTree(bare).write(copy)
         reader = vtkXMLMultiBlockDataReader()
         reader.SetFileName(copy)
         reader.Update()
@@ -424,13 +440,12 @@ def _decoded_field_data(root, name: str) -> dict:
     return {name: np.asarray(vtk_to_numpy(array)).ravel()} if array is not None else {}
 
 
-def _with_own_time(mesh, path: str, block: str):
-    """``mesh`` (the step's volume blocks read) with the time the multiblock file stores itself, when it
-    stores one, in place of the blocks'; where the two differ, ``mesh.time_disagreement`` says so (the series
-    warns of it where the step's time is the file's)."""
+def _with_own_time(mesh, path: str, block: str, own: dict):
+    """``mesh`` (the step's volume blocks read) with the time the multiblock file stores itself (``own``, its
+    :func:`own_time`), when it stores one, in place of the blocks'; where the two differ,
+    ``mesh.time_disagreement`` says so (the series warns of it where the step's time is the file's)."""
     from ._formats import TIME_ARRAY_NAMES, time_from_field_data
 
-    own = own_time(path)
     if not own:
         return mesh
     field_data = dict(mesh.field_data or {})

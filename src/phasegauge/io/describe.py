@@ -64,10 +64,8 @@ def describe_series(path, *, scan: str = "auto", sort_by_time: bool = False) -> 
             series.close()
     records = [(w.category, getattr(w.message, "what", str(w.message)), getattr(w.message, "where", ""))
                for w in caught if issubclass(w.category, PhasegaugeWarning)]
-    from ._multiblock import left_out_names
-
-    patches = [name for category, what, _ in records if issubclass(category, BlocksLeftOutNote)
-               for name in left_out_names(what)]  # blocks of faces in a volume format: left out as .vtp ones
+    patches = [name for w in caught if isinstance(w.message, BlocksLeftOutNote)
+               for name in w.message.names]  # blocks of faces in a volume format: left out as .vtp ones
     records = [rec for rec in records if not issubclass(rec[0], BlocksLeftOutNote)]
     desc["blocks_left_out"] = list(dict.fromkeys(desc["blocks_left_out"] + patches))
     records += [(SkippedStepWarning, f"{err.what}; {err.fix}", err.where)
@@ -139,12 +137,9 @@ def _describe(series, scan: str) -> dict:
     if overlap is not None:
         warnings.warn(MeshWarning(f"{overlap}; measure refuses this mesh", where=first.info.where), stacklevel=3)
     sizes = mesh.cell_sizes
-    from ..model.quasi2d import one_cell_thick, tilted_slab, tilted_slab_words
+    from ..model.quasi2d import as_measured
 
-    flat = one_cell_thick(mesh)
-    tilted = tilted_slab(mesh) if flat is None and mesh.dimension == 3 else None
-    if tilted is not None:
-        warnings.warn(MeshWarning(tilted_slab_words(tilted), where=first.info.where), stacklevel=3)
+    flat = as_measured(mesh, where=first.info.where)  # (and the warning on a slab between turned planes)
     from ..model._wedge_sector import wedge_sector
 
     sector = wedge_sector(mesh)

@@ -20,7 +20,8 @@ from .cells import FACES
 from .mesh import Mesh
 
 __all__ = ["Quasi2D", "one_cell_thick", "as_measured", "flat_mesh_if_built", "tilted_slab", "tilted_slab_words",
-           "PLANE_TOLERANCE", "TILTED_PLANE_TOLERANCE"]
+           "PLANE_TOLERANCE", "TILTED_PLANE_TOLERANCE",
+           "TILTED_FLOAT32_SPACINGS"]
 
 #: points lie on a plane when within this fraction of the mesh's largest extent of it
 PLANE_TOLERANCE = 1e-9
@@ -29,6 +30,12 @@ PLANE_TOLERANCE = 1e-9
 #: mesh's largest extent of it (our threshold: loose against the rounding of turned coordinates, 1e-16, and
 #: far below a cell of any mesh this reads, so a mesh two cells thick is never taken for one)
 TILTED_PLANE_TOLERANCE = 1e-6
+
+#: points that are all single-precision numbers (a float32 file's) are on a tilted plane within this many
+#: float32 spacings at their largest |x| when that is looser (our threshold: the rounding of each coordinate,
+#: half a spacing, moves a height along a turned normal by up to sqrt(3) / 2 spacing, and the lowest and
+#: highest heights are rounded too; 7.6e-6 a spacing at |x| = 100, still far below a cell's depth)
+TILTED_FLOAT32_SPACINGS = 4
 
 #: the 2D cell of each prism cell type, and the corner count of its face on a plane
 _PRISMS = {"hexahedron": ("quad", 4), "wedge": ("triangle", 3)}
@@ -65,10 +72,12 @@ class Quasi2D:
         return {"dimension": 2, "quasi_2d": True, "thin_axis": self.axis_name, "depth": float(self.depth)}
 
 
-def as_measured(mesh: Mesh, *, keep_3d: bool = False) -> Quasi2D | None:
+def as_measured(mesh: Mesh, *, keep_3d: bool = False, where: str = "") -> Quasi2D | None:
     """The :class:`Quasi2D` record of a mesh as measure reads it: a 3D mesh one cell thick is measured
     on the 2D mesh of its lower plane, per unit depth, unless ``keep_3d``; None where it is read as it
-    is (2D, thicker, or ``keep_3d``). The one rule for measure, compare and the convergence sizes."""
+    is (2D, thicker, or ``keep_3d``). The one rule for measure, compare, the convergence sizes and
+    ``inspect``; a slab one cell thick between turned planes (:func:`tilted_slab`) is warned of
+    (:class:`~phasegauge.errors.MeshWarning` naming ``where``, the file and step)."""
     if keep_3d or mesh.dimension != 3:
         return None
     flat = one_cell_thick(mesh)
@@ -79,7 +88,7 @@ def as_measured(mesh: Mesh, *, keep_3d: bool = False) -> Quasi2D | None:
 
             from ..errors import MeshWarning
 
-            warnings.warn(MeshWarning(tilted_slab_words(tilted)), stacklevel=2)
+            warnings.warn(MeshWarning(tilted_slab_words(tilted), where=where), stacklevel=2)
     return flat
 
 
@@ -117,7 +126,7 @@ def _tilted(mesh: Mesh) -> tuple | None:
     if np.max(np.abs(normal)) > 1 - 1e-12:
         return None  # normal to an axis: one_cell_thick's case (not one cell thick there)
     height = points @ normal
-    tolerance = TILTED_PLANE_TOLERANCE * float(np.ptp(mesh.bounds, axis=0).max())  # the used points' extent
+    tolerance = _tilted_tolerance(mesh, used)
     lo, hi = float(height.min()), float(height.max())
     # a few heights spread over the numbering first, as one_cell_thick probes: a thick mesh has some between
     if hi - lo <= tolerance or not _on_planes(height[::max(1, height.size // _PROBE)], lo, hi, tolerance):
@@ -132,6 +141,17 @@ def _tilted(mesh: Mesh) -> tuple | None:
     if normal[np.argmax(np.abs(normal))] < 0:
         normal = -normal
     return tuple(float(v) for v in normal), hi - lo
+
+
+def _tilted_tolerance(mesh: Mesh, used: np.ndarray) -> float:
+    """:data:`TILTED_PLANE_TOLERANCE` of the used points' extent, floored at :data:`TILTED_FLOAT32_SPACINGS`
+    float32 spacings of their largest |x| when every used coordinate is a single-precision number."""
+    tolerance = TILTED_PLANE_TOLERANCE * float(np.ptp(mesh.bounds, axis=0).max())
+    points = mesh.points if used.size == mesh.n_points else mesh.points[used]
+    if np.array_equal(points.astype(np.float32), points):  # (float32 points read into float64: exactly so)
+        far = float(np.abs(points).max())
+        tolerance = max(tolerance, TILTED_FLOAT32_SPACINGS * float(np.spacing(np.float32(far))))
+    return tolerance
 
 
 def one_cell_thick(mesh: Mesh) -> Quasi2D | None:

@@ -115,8 +115,8 @@ def plan_sampling(series_a, series_b, *, spacing=None, time_tolerance=None, chos
             steps, first = predicted or _predicted_pairs(series_a, series_b, time_tolerance, chosen)
             if first is None:
                 return empty
-            mesh_a, flat_a = _as_measured(series_a.read_mesh(first[0]))
-            mesh_b, flat_b = _as_measured(series_b.read_mesh(first[1]))
+            mesh_a, flat_a = _as_measured(series_a.read_mesh(first[0]), str(series_a.path))
+            mesh_b, flat_b = _as_measured(series_b.read_mesh(first[1]), str(series_b.path))
         problem = _space_problem(mesh_a, mesh_b, series_a.path, series_b.path, (flat_a, flat_b))
         grid = None if problem else cmp.common_grid(mesh_a, mesh_b, spacing=spacing)
     except PhasegaugeError:
@@ -129,13 +129,13 @@ def plan_sampling(series_a, series_b, *, spacing=None, time_tolerance=None, chos
     return SamplingPlan(grid, (mesh_a.signature, mesh_b.signature), steps, _axis_names(mesh_a))
 
 
-def _as_measured(mesh):
+def _as_measured(mesh, where: str = ""):
     """The mesh as measure reads it: a 3D mesh one cell thick as the 2D mesh of its lower plane, so
     the common grid, and the sampling in the measure runs' workers, are 2D there too; and whether it
-    was so read."""
+    was so read (``where``: the run's path, named in its warning)."""
     from ..model.quasi2d import as_measured
 
-    flat = as_measured(mesh)
+    flat = as_measured(mesh, where=where)
     return (mesh, False) if flat is None else (flat.mesh, True)
 
 

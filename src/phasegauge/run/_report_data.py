@@ -62,16 +62,16 @@ def series_record(series) -> dict:
     return record
 
 
-def blocks_left_out(series, results) -> list:
+def blocks_left_out(record: dict, results) -> list:
     """The names of the multiblock blocks a run left out: the polygon-data blocks of the first step's file
-    (:func:`series_record`) and the blocks of faces written in a volume format that the steps' reads left
-    out (:class:`~phasegauge.errors.BlocksLeftOutNote`), listed alike; [] when none."""
+    (``record``, the series' :func:`series_record`) and the blocks of faces written in a volume format that
+    the steps' reads left out (the :class:`~phasegauge.errors.BlocksLeftOutNote` of each step's ``notes``,
+    their ``names``), listed alike; [] when none."""
     from ..errors import BlocksLeftOutNote
-    from ..io._multiblock import left_out_names
 
-    names = list(series_record(series).get("blocks_left_out", []))
-    names += [name for r in results for category, what, _ in (getattr(r, "notes", None) or [])
-              if issubclass(category, BlocksLeftOutNote) for name in left_out_names(what)]
+    names = list(record.get("blocks_left_out", []))
+    names += [name for r in results for note in (getattr(r, "notes", None) or [])
+              if isinstance(note, BlocksLeftOutNote) for name in note.names]
     return list(dict.fromkeys(names))
 
 
@@ -134,22 +134,22 @@ def interface_snapshots(mesh, contours: dict, times: dict | None = None) -> dict
             "axis_names": tuple(AXIS_NAMES[a] for a in axes)}
 
 
-def measure_report_data(series, result) -> dict:
+def measure_report_data(series, result, record: dict | None = None) -> dict:
     """Keyword arguments of :func:`phasegauge.report.write_measure_report` besides the tables.
 
-    ``series`` (a record), ``inputs`` (files with size and SHA-256), ``snapshots`` (interface arrays
-    of the steps whose contours were kept),
-    ``step_timings`` and ``version``.
+    ``series`` (a record: ``record``, the series' :func:`series_record` where the run has it, completed
+    here), ``inputs`` (files with size and SHA-256), ``snapshots`` (interface arrays of the steps whose
+    contours were kept), ``step_timings`` and ``version``.
     """
     results = list(result.results)
     contours = {r.index: getattr(r, "contour", None) for r in results}
-    record = series_record(series)
+    record = dict(series_record(series) if record is None else record)
     record["time_origin"] = measured_time_origin(series, results) or record["time_origin"]
     sources = [r.field_source for r in results if getattr(r, "field_source", "")]
     if sources:
         record["field_read"] = sources[0]
     record.update(measured_as(results, keep_3d=getattr(result.options, "keep_3d", False)))
-    left_out = blocks_left_out(series, results)
+    left_out = blocks_left_out(record, results)
     if left_out:
         record["blocks_left_out"] = left_out
     return {

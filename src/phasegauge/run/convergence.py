@@ -137,7 +137,8 @@ def _mesh_size(source: ConvergenceSource, known: bool, options=None) -> None:
         warnings.simplefilter("ignore", PhasegaugeWarning)
         with Series(source.series_path) as series:
             mesh = series.read_mesh(0)
-    flat = as_measured(mesh, keep_3d=not _measured_as_2d(source, options))  # (as run.step.flatten_step)
+    flat = as_measured(mesh, keep_3d=not _measured_as_2d(source, options),
+                       where=source.series_path)  # (as run.step.flatten_step)
     if flat is not None:
         mesh, source.depth = flat.mesh, float(flat.depth)
     source.n_cells = int(mesh.n_whole_cells)

@@ -315,12 +315,15 @@ def _measure(series, indices, options, out, txn, *, workers, threads, scheduler,
     if contour_dir is not None:
         _write_contour_listing(contour_dir, results)
     result = assemble(series, results, options, notes=notes, feed=feed, mesh_pool=runner.mesh_pool)
-    result.reading = _reading(series, results)
+    from ._report_data import series_record
+
+    record = series_record(series)  # (the first .vtm's blocks read once)
+    result.reading = _reading(record, results)
     if out is not None:
         from ..report import write_measure_report
         from ._report_data import measure_report_data
 
-        write_measure_report(out, result, **measure_report_data(series, result), started=started,
+        write_measure_report(out, result, **measure_report_data(series, result, record), started=started,
                              execution={"workers": workers, "threads": threads, "scheduler": scheduler,
                                         "resume": resume, "contours": bool(contours), "invocation": invocation,
                                         **output})
@@ -410,16 +413,17 @@ def _write_contour_listing(contour_dir: str, results) -> None:
     atomic_write_text(os.path.join(contour_dir, CONTOUR_LISTING), "\n".join(lines) + "\n")
 
 
-def _reading(series, results) -> list:
+def _reading(record: dict, results) -> list:
     """Info lines on what the run read: a field's copy when it has two, multiblock blocks left out (polygon
-    data, and volume-format blocks of faces: :class:`~phasegauge.errors.BlocksLeftOutNote`)."""
+    data, in the series' ``record``, and volume-format blocks of faces:
+    :class:`~phasegauge.errors.BlocksLeftOutNote`)."""
     from ._report_data import blocks_left_out
 
     lines = []
     sources = [r.field_source for r in results if getattr(r, "field_source", "") and r.skipped is None]
     if sources and "exists too" in sources[0]:
         lines.append(f"read {sources[0]}")
-    left_out = blocks_left_out(series, results)  # polygon data, and blocks of faces in a volume format, alike
+    left_out = blocks_left_out(record, results)  # polygon data, and blocks of faces in a volume format, alike
     if left_out:
         lines.append(f"multiblock blocks left out: {', '.join(left_out)} "
                      "(boundary patches: the volume blocks are read)")

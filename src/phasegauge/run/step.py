@@ -70,7 +70,7 @@ class StepResult:
     reused: bool = False
     error: PhasegaugeError | None = None  # why the step was skipped
     warning_records: list = field(default_factory=list)  # (category, what, where) of the step's warnings
-    notes: list = field(default_factory=list)  # (category, what, where) of its info lines (BlocksLeftOutNote)
+    notes: list = field(default_factory=list)  # its info lines: the BlocksLeftOutNote warnings themselves
     dimension: int = 0
     outline: MeshOutline | None = None
     extra: object = None  # what options.step_extra returned (e.g. c sampled for a comparison)
@@ -164,7 +164,7 @@ def flatten_step(step, options):
 
     from ..model.quasi2d import as_measured
 
-    flat = as_measured(step.mesh, keep_3d=getattr(options, "keep_3d", False))
+    flat = as_measured(step.mesh, keep_3d=getattr(options, "keep_3d", False), where=step.info.where)
     if flat is None:
         return step, None
     fields = replace(step.fields, point_data={name: np.asarray(values)[flat.points]
@@ -545,7 +545,7 @@ class StepRunner:
             records = [(w.category, getattr(w.message, "what", str(w.message)), info.where)
                        for w in caught if issubclass(w.category, PhasegaugeWarning)]
             # blocks left out are an info line of the run, not a finding: kept apart from the step's warnings
-            result.notes = [rec for rec in records if issubclass(rec[0], BlocksLeftOutNote)]
+            result.notes = [w.message for w in caught if isinstance(w.message, BlocksLeftOutNote)]
             result.warning_records = [rec for rec in records if not issubclass(rec[0], BlocksLeftOutNote)]
         result.seconds = time.perf_counter() - start
         result.file_sha256 = entry.file_sha256 if entry is not None else ""
