@@ -10,7 +10,8 @@ last layer of cells joins the first as smoothly as neighbouring layers join insi
 such an axis as a closed wall unless it is named periodic. The same rule serves the points of a
 regular grid (:func:`points_look_periodic`), whichever of a periodic solver's two layouts they
 have (:func:`plane_written_twice`): both ends of the period written, or the period one spacing
-beyond the last plane, as a spectral (FFT) code writes its array.
+beyond the last plane, as a spectral (FFT) code writes its array. :class:`PeriodicLook` holds one
+step's answer, worked out once for the droplets' warning and the free energy's.
 """
 
 from __future__ import annotations
