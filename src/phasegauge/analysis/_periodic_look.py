@@ -35,7 +35,8 @@ MIN_VARIATION = 1e-3
 
 #: where the contour cuts both boundary layers, the layers may join wrapped up to this many times
 #: the walled reading (our threshold: a sharp drop crossing the boundary by more than a cell reads
-#: 1.00 to 1.19 on 32 to 128 cells across, white noise 1.33 to 1.73 (1 % of 32^2 fields below 1.40))
+#: 1.00 to 1.19 on 32 to 128 cells across, white noise about 1.73: sqrt 3, its least of 400 fields
+#: 1.33 on 32^2, 1.44 on 128 x 64, 1.16 on 16^2)
 WALLED_SHARE = 1.25
 
 #: a clear join: wrapped at most this share of the roughest inner layer (our threshold: a sharp drop
@@ -43,7 +44,8 @@ WALLED_SHARE = 1.25
 CLEAR_JOIN = 0.25
 
 #: ... which may then read up to this many times the walled reading (our threshold: such a drop
-#: reads up to 1.69, a walled film whose ends differ by a tenth of a cell many thousand times)
+#: reads up to 1.69; two unlike drops on both walls read 7 and more, a film thinning steadily from
+#: wall to wall, by however little, as many times as it has layers)
 CLEAR_WALLED_SHARE = 2.0
 
 
