@@ -254,7 +254,7 @@ def cells_look_periodic(mesh: Mesh, c_cell, *, periodic=(), level: float = 0.5) 
 
         - the first and last layers of cells vary along the boundary by more than
           ``MIN_VARIATION`` (a uniform phase on both walls proves nothing, as for points) and are
-          not mirror images (equal within ``ROUNDOFF`` of that variation: wrapped and walled then
+          not mirror images (equal within ``MIN_VARIATION`` of that variation: wrapped and walled then
           read alike, and a field mirrored at its walls cannot be told from a periodic one
           mirrored about its boundary, as a drop centred on it is),
         - the second differences across the boundary with the last layer wrapped onto the first
@@ -279,8 +279,9 @@ def cells_look_periodic(mesh: Mesh, c_cell, *, periodic=(), level: float = 0.5) 
     same run with walls (cosine transform, no flux) reads 5.9 to 25 wrapped; its starting noise
     reads 0.85 wrapped and 0.48 walled (no sign). Sharp drops across the boundary of a 2 x 1 box
     (cell fractions of exact discs, 32 to 128 cells across, radius 0.05 to 0.3): every drop that
-    crosses it by more than a cell is named, but one centred on it to a 32nd of a cell (its
-    fractions mirror images). An axis with fewer than 4 layers is not checked.
+    crosses it by more than a cell is named (657 of 658, 413 before the allowance where the
+    contour cuts), but those centred on it so nearly that their fractions (16 x 16 samples a
+    cell) are mirror images. An axis with fewer than 4 layers is not checked.
     """
     grid = mesh.regular_grid
     values = np.asarray(c_cell, dtype=np.float64)
