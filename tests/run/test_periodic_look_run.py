@@ -82,3 +82,21 @@ def test_the_periodic_look_is_worked_out_once_a_step(tmp_path, location, monkeyp
     assert len(calls) == 2  # one a step
     texts = [str(w) for w in result.warnings if "periodic" in str(w)]
     assert len(texts) == 2 and any("droplets crossing" in t for t in texts) and any("free energy" in t for t in texts)
+
+
+@pytest.mark.parametrize("name", ["vortex_upwind", "vortex_sharp"])
+def test_the_shipped_walled_samples_do_not_look_periodic(name):
+    # a dye blob in a closed stirred cell (LeVeque's reversed vortex in the unit square, walls all round):
+    # no step looks periodic to either warning (the mesh is a regular grid, so the layers are looked at)
+    import os
+
+    from phasegauge.analysis.droplets import PeriodicLook
+    from phasegauge.io import Series
+    from phasegauge.model.indicator import make_indicator
+
+    series = Series(os.path.join(os.path.dirname(__file__), os.pardir, os.pardir, "sample_fields", name))
+    for index in range(0, len(series), 4):
+        step = series.read(index)
+        assert step.mesh.regular_grid is not None
+        look = PeriodicLook(step.mesh, make_indicator(step.mesh, step.fields, "c"), level=0.5)
+        assert look.axes == [] and look.droplet_axes == []
