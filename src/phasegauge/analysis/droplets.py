@@ -4,7 +4,7 @@ See :func:`label_droplets`; the algorithm lives in ``analysis/_labelling.py``.
 """
 
 from ._labelling import TABLE_COLUMNS, DropletLabels, label_droplets
-from ._periodic_look import cells_look_periodic, looks_periodic, points_look_periodic
+from ._periodic_look import PeriodicLook, cells_look_periodic, looks_periodic, points_look_periodic
 
 __all__ = ["label_droplets", "DropletLabels", "TABLE_COLUMNS", "looks_periodic", "cells_look_periodic",
-           "points_look_periodic"]
+           "points_look_periodic", "PeriodicLook"]

@@ -25,11 +25,13 @@ __all__ = ["equilibrium_step", "WELL_REACH"]
 WELL_REACH = 0.25
 
 
-def equilibrium_step(step, mesh, ind, options, interface_size) -> dict:
+def equilibrium_step(step, mesh, ind, options, interface_size, look) -> dict:
     """Chemical potential spread, free energy and tension of one step (``EQUILIBRIUM_KEYS``).
 
     The model is evaluated on c, the field mapped through the range; on any mesh but a uniform
-    regular grid the figures are NaN and a warning says so.
+    regular grid the figures are NaN and a warning says so. ``look`` is the step's
+    :class:`~phasegauge.analysis.droplets.PeriodicLook` (the axes along which the field looks
+    periodic, worked out once for this warning and the droplets').
     """
     from ..analysis.thermo import equilibrium_metrics
 
@@ -51,7 +53,7 @@ def equilibrium_step(step, mesh, ind, options, interface_size) -> dict:
 
         temperature = step_temperature(step, mesh, options)
     if uniform:  # whatever --analyses holds
-        _warn_looks_periodic(mesh, c, ind.location, options.periodic, where)
+        _warn_looks_periodic(look.axes, ind.location, options.periodic, where)
     return equilibrium_metrics(mesh, c, model, kappa=model.kappa, periodic=tuple(options.periodic),
                                interface_size=interface_size, temperature=temperature)
 
@@ -75,15 +77,13 @@ def _warn_beyond_the_wells(c, model, value_range, where: str) -> None:
         stacklevel=3)
 
 
-def _warn_looks_periodic(mesh, c, location: str, periodic, where: str) -> None:
-    """One warning (collapsed over steps) when the field looks periodic along an axis the stencil
-    closes (:func:`phasegauge.analysis.droplets.cells_look_periodic`, or on point data
-    :func:`phasegauge.analysis.droplets.points_look_periodic`, in either layout of a periodic run's points)."""
-    from ..analysis.droplets import cells_look_periodic, points_look_periodic
-
+def _warn_looks_periodic(axes, location: str, periodic, where: str) -> None:
+    """One warning (collapsed over steps) when the field looks periodic along ``axes``, which the stencil
+    closes (:attr:`phasegauge.analysis.droplets.PeriodicLook.axes`: the rule of
+    :func:`~phasegauge.analysis.droplets.cells_look_periodic`, or on point data of
+    :func:`~phasegauge.analysis.droplets.points_look_periodic`, in either layout of a periodic run's points);
+    the rule reads the indicator, c or 1 - c, alike."""
     on_points = location == "point"
-    rule = points_look_periodic if on_points else cells_look_periodic
-    axes = rule(mesh, c, periodic=tuple(periodic))
     if axes:
         names = ",".join(axes)
         layers = "plane of points" if on_points else "layer of cells"

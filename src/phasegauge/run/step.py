@@ -197,7 +197,7 @@ def analyse_step(step, options, *, contour_dir: str | None = None, threads: int 
         beside the widths: up to two threads more than ``threads`` may then run at
         once (they share the interpreter lock, so they overlap only in part).
     """
-    from ..analysis import mixing
+    from ..analysis import droplets, mixing
 
     step, flat = flatten_step(step, options)
     mesh = step.mesh
@@ -222,6 +222,9 @@ def analyse_step(step, options, *, contour_dir: str | None = None, threads: int 
     result.velocity_location = u_location
     result.samples = sample_step(mesh, ind, options, where=step.info.where)
     m = {"step": step.index, "time": step.time}
+    # whether the field looks periodic along an axis not measured so: worked out once, when the
+    # droplets' or the free energy's warning first asks
+    look = droplets.PeriodicLook(mesh, ind, periodic=options.periodic, level=options.level)
     if flat is not None:  # measured per unit depth: say so in the steps table
         m["depth"] = float(flat.depth)
     # the sections (and a new mesh's section operator) are measured beside the phase analyses, their
@@ -234,7 +237,7 @@ def analyse_step(step, options, *, contour_dir: str | None = None, threads: int 
     inner = threads - side if sections is not None and new else threads
     with sections or nullcontext():  # waited for however the analyses end
         contour, measured = _phase_analyses(step, mesh, ind, options, result, m, (u_cell, u_point, u_location),
-                                            contour_dir, inner)
+                                            contour_dir, inner, look)
     if options.level_set and "interface" in options.analyses:  # no width of its own: its slope instead
         from ..analysis._level_set import distance_errors
 
@@ -270,7 +273,7 @@ def analyse_step(step, options, *, contour_dir: str | None = None, threads: int 
     if options.free_energy is not None:
         from ._phase_field import equilibrium_step
 
-        m.update(equilibrium_step(step, mesh, ind, options, size))
+        m.update(equilibrium_step(step, mesh, ind, options, size, look))
     if options.model is not None:  # a partially miscible mixture: bulk compositions against the model
         from ._mixture import mixture_step
 
@@ -301,9 +304,11 @@ def _sections_beside(mesh, ind, options, planes: dict, threads: int):
     return Beside(mixing.cross_sections_noted, mesh, ind, **planes, threads=threads)
 
 
-def _phase_analyses(step, mesh, ind, options, result, m: dict, velocity: tuple, contour_dir, threads: int):
+def _phase_analyses(step, mesh, ind, options, result, m: dict, velocity: tuple, contour_dir, threads: int,
+                    look):
     """Conservation, interface and droplets of one step, into ``m`` and ``result``; returns the
-    contour and the distances the widths measured (or None)."""
+    contour and the distances the widths measured (or None). ``look`` is the step's
+    :class:`~phasegauge.analysis.droplets.PeriodicLook`."""
     from ..analysis import conservation, interface
 
     u_cell, u_point, u_location = velocity
@@ -357,7 +362,7 @@ def _phase_analyses(step, mesh, ind, options, result, m: dict, velocity: tuple, 
     if "droplets" in options.analyses:
         found = _label_droplets(mesh, ind, options, u_cell, contour, plateaus) if labels is None else labels.result()
         table = found.table
-        _warn_periodic_look(mesh, ind, options, step.info.where)
+        _warn_periodic_look(look, ind.location, step.info.where)
         m["droplet_count"] = int(found.count)
         m["under_resolved_droplets"] = int(table["under_resolved"].sum()) if len(table) else 0
         labelled = np.flatnonzero(found.labels >= 0)
@@ -403,21 +408,16 @@ def _interface_size(mesh, ind, options, m: dict, contour) -> float:
     return float(np.sum(contour.element_sizes))
 
 
-def _warn_periodic_look(mesh, ind, options, where: str) -> None:
-    """One warning (collapsed over steps) when the field looks periodic along an axis not measured so: point
-    values written on both ends of a period matching to round-off (:func:`~phasegauge.analysis.droplets.
-    looks_periodic`), or cell values of a regular grid whose last layer joins the first as neighbouring
-    layers join (:func:`~phasegauge.analysis.droplets.cells_look_periodic`)."""
-    from ..analysis.droplets import cells_look_periodic, looks_periodic
-
-    if ind.location == "point":
-        axes = looks_periodic(mesh, ind.point, periodic=tuple(options.periodic), level=options.level)
-        how = "the field on opposite boundaries along {} matches to round-off"
-    else:
-        axes = cells_look_periodic(mesh, ind.cell, periodic=tuple(options.periodic))
-        how = "the cells' last layer along {} joins the first as neighbouring layers join"
+def _warn_periodic_look(look, location: str, where: str) -> None:
+    """One warning (collapsed over steps) when droplets crossing a boundary not measured as periodic
+    would be counted twice (:attr:`~phasegauge.analysis.droplets.PeriodicLook.droplet_axes`: the
+    boundary layers join as neighbouring ones join and the phase reaches both, or point values
+    written on both ends of a period match to round-off)."""
+    axes = look.droplet_axes
     if axes:
         names = ",".join(axes)
+        how = ("the last plane of points along {} joins the first as neighbouring planes join (or matches it)"
+               if location == "point" else "the cells' last layer along {} joins the first as neighbouring layers join")
         warnings.warn(MeshWarning(f"{how.format(names)}: the run looks periodic, and droplets crossing the "
                                   f"boundary are counted twice; give --periodic {names} if it is", where=where),
                       stacklevel=2)
