@@ -43,6 +43,7 @@ from ..model.mesh import Mesh
 from ..model.outline import MeshOutline
 from ..model._whole_cells import whole_cell_count, whole_cells as whole_cells_of
 from ._labelling import DropletLabels, _at_cells, _normalize_periodic
+from ._remerges import drop_remerges, track_string as _track_string
 
 __all__ = ["DropletTracker", "track_droplets", "EVENT_COLUMNS", "EVENT_KINDS"]
 
@@ -60,17 +61,6 @@ REACH = 2.0
 #: drops of an n -> n group whose volumes pair one to one within this share are n drops carried on
 #: (our threshold)
 SAME_VOLUME = 0.1
-
-
-def _track_string(tracks) -> str:
-    """An event side's track ids as text: space-separated in brackets, ``[0 1]``, ``[2]``, ``[]`` for none
-    (never a bare number, so a CSV reader takes the column as text whatever ids a run has)."""
-    return "[" + " ".join(str(int(t)) for t in sorted(tracks)) + "]"
-
-
-def _track_tokens(text) -> list:
-    """The track ids of an event side's text (:func:`_track_string`) as strings."""
-    return str(text).replace("[", " ").replace("]", " ").split()
 
 
 class DropletTracker:
@@ -475,7 +465,7 @@ class DropletTracker:
         events = (pd.concat(self._events, ignore_index=True) if self._events
                   else pd.DataFrame(columns=[*EVENT_COLUMNS, "_order"]))
         if self.ignore_remerge_within and len(events):
-            droplets, events = _drop_remerges(droplets, events, self.ignore_remerge_within)
+            droplets, events = drop_remerges(droplets, events, self.ignore_remerge_within)
         droplets = droplets.drop(columns="_order").reset_index(drop=True)
         events = events[list(EVENT_COLUMNS)].reset_index(drop=True)
         events["step"] = events["step"].astype(droplets["step"].dtype if len(droplets) else np.int64)
@@ -530,38 +520,6 @@ def _whole_labels(step: dict, outline: MeshOutline) -> np.ndarray:
     first = order[np.concatenate([[True], whole[order][1:] != whole[order][:-1]])] if order.size else order
     out[whole[first]] = step["labels"][first]
     return out
-
-
-def _drop_remerges(droplets: pd.DataFrame, events: pd.DataFrame, within: int):
-    """Remove breakups whose fragments all merge back within ``within`` steps: step numbers (the series'
-    own, so a run on every other step, or one with a step left out, keeps the same span), not steps added."""
-    droplets = droplets.copy()
-    events = events.copy()
-    drop = np.zeros(len(events), dtype=bool)
-    for i in np.flatnonzero(events["kind"].to_numpy() == "breakup"):  # loop over events, not cells
-        if drop[i]:
-            continue
-        parent, = _track_tokens(events.at[i, "before"])
-        fragments = set(_track_tokens(events.at[i, "after"]))
-        start, step = events.at[i, "_order"], events.at[i, "step"]
-        later = events.index[(events["_order"] > start) & (events["step"] <= step + within) & ~drop]
-        for j in later:
-            involved = set(_track_tokens(events.at[j, "before"])) | set(_track_tokens(events.at[j, "after"]))
-            if not involved & fragments:
-                continue
-            if events.at[j, "kind"] == "coalescence" and set(_track_tokens(events.at[j, "before"])) == fragments:
-                merged, = _track_tokens(events.at[j, "after"])
-                renamed = {int(t) for t in fragments | {merged}} - {int(parent)}
-                mask = droplets["track"].isin(renamed) & (droplets["_order"] >= start)
-                droplets.loc[mask, "track"] = int(parent)
-                drop[[i, j]] = True
-                names = {str(t) for t in renamed}
-                for k in events.index[events["_order"] > events.at[j, "_order"]]:
-                    for column in ("before", "after"):
-                        ids = [parent if t in names else t for t in _track_tokens(events.at[k, column])]
-                        events.at[k, column] = _track_string(set(int(t) for t in ids))
-            break  # the first later event touching the fragments decides
-    return droplets, events[~drop]
 
 
 def track_droplets(sequence, *, min_overlap: float = 0.1, gate: float = 1.0,
