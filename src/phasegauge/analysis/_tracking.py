@@ -15,9 +15,16 @@ those of the previous one, so only one step's labels are held at a time:
    per piece (``whole_cells=False`` on a split mesh) are read per whole cell too: a
    piece moves from its whole cell's centroid, and a whole cell counts for the
    droplet of its labelled piece of largest ``c dV``.
+   A moved point beyond the box along an axis not periodic, or farther than
+   :data:`REACH` cell sizes from the nearest centroid, is outside the mesh and lands
+   nowhere (a drop carried out through an outlet disappears; it would otherwise land
+   on the outlet's cells, on the drop behind it).
    The overlap of previous droplet p with new droplet q is the sum of ``c dV``
    of p's cells that land in q. A pair is linked when the overlap is at least
-   ``min_overlap`` times the smaller of the two core volumes.
+   ``min_overlap`` times the smaller of the two core volumes. A connected group of as
+   many previous as new droplets (two or more) whose volumes pair one to one within
+   :data:`SAME_VOLUME` keeps those pairs' links alone (drops following each other closer
+   than they move per output overlap the old place of the drop ahead).
 2. *Gate.* Droplets left without any link on both sides are paired one to one
    (minimum total distance, ``scipy.optimize.linear_sum_assignment``) when the
    predicted centroid of the previous droplet lies within ``gate`` equivalent
@@ -81,7 +88,10 @@ class DropletTracker:
         A breakup whose fragments all merge back into one droplet within this
         many steps (step numbers: ``add``'s ``step``, not the count of steps
         added) is not reported: its fragments keep the parent's track id
-        (the track then has several rows in the steps between). 0 reports all.
+        (the track then has several rows in the steps between). Nor is a
+        coalescence whose droplet breaks up again into as many within this many
+        steps: the droplets after it take the tracks of those before it, largest
+        to largest. 0 reports all.
     periodic : sequence of {'x', 'y', 'z'}
         Periodic axes: moved points and centroid distances wrap around them.
 
