@@ -83,3 +83,35 @@ def test_drops_following_closer_than_they_move_keep_their_tracks(radii):
     for _, track in droplets.groupby("track"):  # each track keeps one drop's volume
         assert np.ptp(track["volume"]) == pytest.approx(0.0, abs=1e-12)
 
+
+
+def test_drops_leaving_through_an_outlet_inside_the_box_disappear():
+    """The same train in a channel (y < 0.5) that ends at x = 1.5 while the domain goes on to x = 2 above it
+    (the cells beyond the outlet are not in the mesh, but inside its box): the cells carried past the outlet lie
+    farther than two cell sizes from every centroid, so each drop leaving is a disappearance at the step
+    scipy's count falls (on the grid image of the kept cells)."""
+    from phasegauge.model.mesh import Mesh
+
+    full = grid_mesh((80, 40), bounds=[(0, 2), (0, 1)])
+    X = full.cell_centroids
+    keep = ~((X[:, 0] > 1.5) & (X[:, 1] < 0.5))
+    block = full.blocks[0]
+    mesh = Mesh(full.points, [(block.cell_type, block.connectivity[keep])])
+    Y = mesh.cell_centroids
+    i, j = np.floor(Y[:, 0] / H).astype(int), np.floor(Y[:, 1] / H).astype(int)
+    shift = 12 * H
+    u = np.tile([shift, 0.0], (mesh.n_cells, 1))
+    tracker, counts = DropletTracker(), []
+    for k in range(6):
+        inside = np.zeros(mesh.n_cells, dtype=bool)
+        for m in range(5):
+            inside |= np.hypot(Y[:, 0] - (1.05 - 10 * H * m + shift * k), Y[:, 1] - 0.25) < 4 * H
+        image = np.zeros((40, 80), dtype=bool)
+        image[j, i] = inside
+        counts.append(ndimage.label(image)[1])
+        tracker.add(k, float(k), mesh, label_droplets(mesh, inside.astype(float), velocity=u))
+    droplets, events = tracker.result()
+    assert droplets.groupby("step").size().tolist() == counts
+    assert set(events["kind"]) == {"disappearance"}
+    falls = -np.diff(counts)
+    assert events.groupby("step").size().to_dict() == {k + 1: int(f) for k, f in enumerate(falls) if f}
