@@ -126,7 +126,7 @@ class DropletTracker:
         self.ignore_remerge_within = int(ignore_remerge_within)
         self.periodic = periodic
         self._previous = None
-        self._tree = (None, None, None)
+        self._tree = (None, None, None, None)
         self._next_track = 0
         self._count = 0
         self._droplets: list = []
@@ -346,17 +346,23 @@ class DropletTracker:
             if numbers is not None and numbers.size == mesh.cell_centroids.shape[0]:
                 numbers = None
             tree = cKDTree(mesh.cell_centroids if numbers is None else mesh.cell_centroids[numbers])
-            self._tree = (mesh, tree, numbers)
+            # the smallest cell size of up to 1000 cells drawn at random: points nearer their centroid than
+            # REACH times it are inside (most of them; the sizes of the others' cells alone are looked up)
+            sample = np.random.default_rng(0).choice(tree.n, size=min(tree.n, 1000), replace=False)
+            small = float(tree.query(tree.data[sample], k=2)[0][:, 1].min()) if tree.n > 1 else np.inf
+            self._tree = (mesh, tree, numbers, small)
         tree = self._tree[1]
         distance, found = tree.query(points)
-        near = np.ones(len(found), dtype=bool)
-        if tree.n > 1 and len(found):
-            cells, back = np.unique(found, return_inverse=True)
-            far = distance > REACH * tree.query(tree.data[cells], k=2)[0][:, 1][back.reshape(-1)]
+        near = distance <= REACH * self._tree[3]
+        if not near.all():
+            cells, back = np.unique(found[~near], return_inverse=True)
+            far = distance[~near] > REACH * tree.query(tree.data[cells], k=2)[0][:, 1][back.reshape(-1)]
             if far.any():  # beyond the cell found; within the mesh's largest cell size still counts (long cells)
-                if len(self._tree) < 4:
+                if len(self._tree) < 5:
                     self._tree = (*self._tree, float(tree.query(tree.data, k=2)[0][:, 1].max()))
-                near = ~(far & (distance > REACH * self._tree[3]))
+                near[~near] = ~(far & (distance[~near] > REACH * self._tree[4]))
+            else:
+                near[:] = True
         return (found if self._tree[2] is None else self._tree[2][found]), near
 
     def _link(self, prev: dict, cur: dict) -> np.ndarray:
