@@ -178,7 +178,8 @@ def inspect(path, as_json, scan, sort_by_time):
                    "planes are never open, and the free energy's stencil and the segregation scale's autocorrelation "
                    "wrap there (closed walls elsewhere).")
 @click.option("--ignore-remerge-within", "ignore_remerge_within", type=int, default=0, show_default=True,
-              help="A breakup that merges again within this many steps (step numbers) is no event.")
+              help="A breakup that merges again, or a coalescence that breaks up again into as many drops, within "
+                   "this many steps (step numbers) is no event.")
 @click.option("--densities", default=None, help="Densities of the measured and the other phase, RHO1,RHO2.")
 @click.option("--diffusivity", type=float, default=None,
               help="Physical diffusivity or mobility to compare the numerical one with.")

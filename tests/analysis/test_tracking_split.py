@@ -106,5 +106,7 @@ def test_whole_cell_numbers_with_a_gap_are_never_found():
     mesh = Mesh(points, [("tetra", tetra)], pieces=[np.array([0, 0, 2])])
     outline = MeshOutline.of(mesh, centroids=True)
     assert outline.cell_centroids.shape[0] == 3  # whole cells 0, 1 (no pieces), 2
-    found = DropletTracker()._locate(outline, np.array([[0.0, 0, 0], [5.2, 5.2, 5.2], [7.3, 7.2, 7.2]]))
+    found, near = DropletTracker()._locate(outline, np.array([[0.0, 0, 0], [5.2, 5.2, 5.2], [7.3, 7.2, 7.2]]))
     assert found.tolist() == [0, 0, 2]
+    # the origin lies 9.1 from the nearest centroid, beyond twice the 3.5 between the two centroids
+    assert near.tolist() == [False, True, True]

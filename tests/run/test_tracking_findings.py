@@ -126,3 +126,57 @@ def test_event_track_lists_read_back_from_csv_are_ids():
     events = pd.read_csv(io.StringIO("step,after\n1,2\n2,\n"))
     assert [_track_ids(a) for a in events["after"]] == [[2], []]
     assert _track_ids("3 12") == [3, 12]
+
+
+def test_drops_mixed_up_that_differ_in_volume_are_warned_of(tmp_path):
+    # drops of radius 5 and 4.4 cells (volumes 29 % apart) 20 cells apart moving 16 cells a step with no
+    # velocity: each drop's cells land nearer the drop ahead's new place, so tracks pass down the train, a
+    # drop vanishes at the back and one appears mid-domain (scipy counts 4 drops on every step)
+    path, counts = _row_of_drops(tmp_path, shift=16, steps=3, drops=((10, 5), (30, 4.4), (50, 5), (70, 4.4)))
+    res = measure(path, "c", analyses=("droplets",))
+    assert counts == [4, 4, 4] and list(res.steps["droplet_count"]) == counts
+    finding = next(f for f in res.findings if f.kind == "tracking_unreliable")
+    assert finding.figures["vanished_and_appeared"] >= 1
+
+
+def test_a_velocity_of_the_wrong_sign_moves_tracks_against_it(tmp_path):
+    # drops of radius 6 moving +3 cells a step with the velocity written as -3 cells a step (as with a
+    # velocity of the wrong sign): the cells moved back still overlap the drop, so each track is linked,
+    # and moves 3 cells against its velocity
+    mesh = grid_mesh((N, N), kind="quad")
+    i = np.floor(mesh.cell_centroids[:, 0] * N)
+    j = np.floor(mesh.cell_centroids[:, 1] * N)
+    series = []
+    for k in range(3):
+        inside = ((i + 0.5 - 30 - 3 * k) ** 2 + (j + 0.5 - 50) ** 2 < 36) | \
+                 ((i + 0.5 - 60 - 3 * k) ** 2 + (j + 0.5 - 50) ** 2 < 36)
+        u = np.zeros((mesh.n_cells, 3))
+        u[:, 0] = -3 / N / 0.5
+        series.append((0.5 * k, f"w_{k}.vtu", mesh, {"c": inside.astype(float), "U": u}))
+    res = measure(write_listing(tmp_path, series), "c", analyses=("droplets",), velocity="U")
+    assert res.droplets["track"].nunique() == 2 and len(res.events) == 0
+    finding = next(f for f in res.findings if f.kind == "tracking_unreliable")
+    assert finding.figures["backwards"] == 4
+
+
+def test_a_complex_event_of_as_many_drops_and_the_same_volume_is_warned_of():
+    # blocks 10 and 12 cells long, 2 cells apart, become blocks 6 and 16 cells long: the first's cells land in
+    # both, so 2 -> 2 with the same total volume (22 cells) that pair one to one neither way within 10 %: one
+    # complex event, as drops mixed up give
+    from types import SimpleNamespace
+
+    from phasegauge.analysis.droplets import label_droplets
+    from phasegauge.analysis.tracking import track_droplets
+    from phasegauge.run._tracking_findings import tracking_findings
+
+    mesh = grid_mesh((40, 40))
+    X = mesh.cell_centroids
+    row = np.abs(X[:, 1] - 0.5) < 3 / 40
+    a0, b0 = row & (X[:, 0] > 0.2) & (X[:, 0] < 0.45), row & (X[:, 0] > 0.5) & (X[:, 0] < 0.8)
+    a1, b1 = row & (X[:, 0] > 0.2) & (X[:, 0] < 0.35), row & (X[:, 0] > 0.4) & (X[:, 0] < 0.8)
+    steps = [(k, float(k), mesh, label_droplets(mesh, m.astype(float))) for k, m in enumerate([a0 | b0, a1 | b1])]
+    droplets, events = track_droplets(steps)
+    assert events["kind"].tolist() == ["complex"]
+    assert events["volume_after"].iloc[0] == pytest.approx(events["volume_before"].iloc[0], rel=1e-12)
+    found = tracking_findings(droplets, events, SimpleNamespace(velocity=None, periodic=()))
+    assert [f.kind for f in found] == ["tracking_unreliable"] and found[0].figures["fused"] == 1

@@ -15,9 +15,16 @@ those of the previous one, so only one step's labels are held at a time:
    per piece (``whole_cells=False`` on a split mesh) are read per whole cell too: a
    piece moves from its whole cell's centroid, and a whole cell counts for the
    droplet of its labelled piece of largest ``c dV``.
+   A moved point beyond the box along an axis not periodic, or farther than
+   :data:`REACH` cell sizes from the nearest centroid, is outside the mesh and lands
+   nowhere (a drop carried out through an outlet disappears; it would otherwise land
+   on the outlet's cells, on the drop behind it).
    The overlap of previous droplet p with new droplet q is the sum of ``c dV``
    of p's cells that land in q. A pair is linked when the overlap is at least
-   ``min_overlap`` times the smaller of the two core volumes.
+   ``min_overlap`` times the smaller of the two core volumes. A connected group of as
+   many previous as new droplets (two or more) whose volumes pair one to one within
+   :data:`SAME_VOLUME` keeps those pairs' links alone (drops following each other closer
+   than they move per output overlap the old place of the drop ahead).
 2. *Gate.* Droplets left without any link on both sides are paired one to one
    (minimum total distance, ``scipy.optimize.linear_sum_assignment``) when the
    predicted centroid of the previous droplet lies within ``gate`` equivalent
@@ -43,6 +50,7 @@ from ..model.mesh import Mesh
 from ..model.outline import MeshOutline
 from ..model._whole_cells import whole_cell_count, whole_cells as whole_cells_of
 from ._labelling import DropletLabels, _at_cells, _normalize_periodic
+from ._remerges import drop_remerges, track_string as _track_string
 
 __all__ = ["DropletTracker", "track_droplets", "EVENT_COLUMNS", "EVENT_KINDS"]
 
@@ -52,16 +60,14 @@ EVENT_COLUMNS = ("step", "time", "kind", "before", "after", "volume_before", "vo
 #: the kinds of event
 EVENT_KINDS = ("breakup", "coalescence", "complex", "appearance", "disappearance")
 
+#: a moved point whose nearest cell centroid is farther than this many times that cell's size (the distance
+#: to the nearest other centroid) lies outside the mesh (our threshold: a point inside a cell of a regular
+#: mesh is within about one size of the nearest centroid, on triangles and tetrahedra a little more)
+REACH = 2.0
 
-def _track_string(tracks) -> str:
-    """An event side's track ids as text: space-separated in brackets, ``[0 1]``, ``[2]``, ``[]`` for none
-    (never a bare number, so a CSV reader takes the column as text whatever ids a run has)."""
-    return "[" + " ".join(str(int(t)) for t in sorted(tracks)) + "]"
-
-
-def _track_tokens(text) -> list:
-    """The track ids of an event side's text (:func:`_track_string`) as strings."""
-    return str(text).replace("[", " ").replace("]", " ").split()
+#: drops of an n -> n group whose volumes pair one to one within this share are n drops carried on
+#: (our threshold)
+SAME_VOLUME = 0.1
 
 
 class DropletTracker:
@@ -82,7 +88,10 @@ class DropletTracker:
         A breakup whose fragments all merge back into one droplet within this
         many steps (step numbers: ``add``'s ``step``, not the count of steps
         added) is not reported: its fragments keep the parent's track id
-        (the track then has several rows in the steps between). 0 reports all.
+        (the track then has several rows in the steps between). Nor is a
+        coalescence whose droplet breaks up again into as many within this many
+        steps: the droplets after it take the tracks of those before it, largest
+        to largest. 0 reports all.
     periodic : sequence of {'x', 'y', 'z'}
         Periodic axes: moved points and centroid distances wrap around them.
 
@@ -117,7 +126,7 @@ class DropletTracker:
         self.ignore_remerge_within = int(ignore_remerge_within)
         self.periodic = periodic
         self._previous = None
-        self._tree = (None, None, None)
+        self._tree = (None, None, None, None)
         self._next_track = 0
         self._count = 0
         self._droplets: list = []
@@ -299,14 +308,20 @@ class DropletTracker:
             parents = None if prev["whole"] else mesh_p.cell_parents
             points = mesh_p.cell_centroids[prev["cells"] if parents is None else parents[prev["cells"]]]
             points = points + shift
-            for ax in cur["axes"]:
-                period = hi[ax] - lo[ax]
-                points[:, ax] = lo[ax] + np.mod(points[:, ax] - lo[ax], period)
-            found = self._locate(mesh_c, points)
+            inside = np.ones(len(points), dtype=bool)
+            for ax in range(points.shape[1]):
+                if ax in cur["axes"]:
+                    period = hi[ax] - lo[ax]
+                    points[:, ax] = lo[ax] + np.mod(points[:, ax] - lo[ax], period)
+                else:  # carried out through an outlet: gone, not onto the cells at the outlet
+                    inside &= (points[:, ax] >= lo[ax]) & (points[:, ax] <= hi[ax])
+            found, near = self._locate(mesh_c, points[inside])
+            inside[inside] = near  # beyond the mesh's edge where it is not the box's (a curved wall)
+            landed = np.full(len(points), -1, dtype=np.int64)
             if mesh_c.cell_parents is None or cur["whole"]:  # found: cells in the labels' own numbering
-                landed = _at_cells(cur["cells"], cur["labels"], found)
+                landed[inside] = _at_cells(cur["cells"], cur["labels"], found[near])
             else:
-                landed = _whole_labels(cur, mesh_c)[found]
+                landed[inside] = _whole_labels(cur, mesh_c)[found[near]]
         hit = landed >= 0
         if only is not None:
             hit &= np.isin(landed, only)
@@ -316,10 +331,13 @@ class DropletTracker:
         ov = overlap.tocoo()
         smaller = np.minimum(prev["core_volume"][ov.row], cur["core_volume"][ov.col])
         keep = ov.data >= self.min_overlap * smaller
-        return ov.row[keep], ov.col[keep]
+        return ov.row[keep], ov.col[keep], ov.data[keep]
 
-    def _locate(self, mesh: MeshOutline, points: np.ndarray) -> np.ndarray:
-        """Cell of ``mesh`` whose centroid is nearest to each point (a whole cell of a split mesh)."""
+    def _locate(self, mesh: MeshOutline, points: np.ndarray) -> tuple:
+        """Cell of ``mesh`` whose centroid is nearest to each point (a whole cell of a split mesh), and
+        whether the point lies within :data:`REACH` times a cell size of it: that cell's (the distance from its
+        centroid to the nearest other one) or, past that, the mesh's largest (so a point inside a long thin
+        cell, far from its centroid but farther from the next, still counts). Farther: outside the mesh."""
         if self._tree[0] is not mesh:
             # a split mesh's whole cells numbered with gaps (a block split in part keeps its rows'
             # numbers) have no pieces and no centroid: the tree holds the whole cells that have
@@ -328,9 +346,24 @@ class DropletTracker:
             if numbers is not None and numbers.size == mesh.cell_centroids.shape[0]:
                 numbers = None
             tree = cKDTree(mesh.cell_centroids if numbers is None else mesh.cell_centroids[numbers])
-            self._tree = (mesh, tree, numbers)
-        found = self._tree[1].query(points)[1]
-        return found if self._tree[2] is None else self._tree[2][found]
+            # the smallest cell size of up to 1000 cells drawn at random: points nearer their centroid than
+            # REACH times it are inside (most of them; the sizes of the others' cells alone are looked up)
+            sample = np.random.default_rng(0).choice(tree.n, size=min(tree.n, 1000), replace=False)
+            small = float(tree.query(tree.data[sample], k=2)[0][:, 1].min()) if tree.n > 1 else np.inf
+            self._tree = (mesh, tree, numbers, small)
+        tree = self._tree[1]
+        distance, found = tree.query(points)
+        near = distance <= REACH * self._tree[3]
+        if not near.all():
+            cells, back = np.unique(found[~near], return_inverse=True)
+            far = distance[~near] > REACH * tree.query(tree.data[cells], k=2)[0][:, 1][back.reshape(-1)]
+            if far.any():  # beyond the cell found; within the mesh's largest cell size still counts (long cells)
+                if len(self._tree) < 5:
+                    self._tree = (*self._tree, float(tree.query(tree.data, k=2)[0][:, 1].max()))
+                near[~near] = ~(far & (distance[~near] > REACH * self._tree[4]))
+            else:
+                near[:] = True
+        return (found if self._tree[2] is None else self._tree[2][found]), near
 
     def _link(self, prev: dict, cur: dict) -> np.ndarray:
         dt = cur["time"] - prev["time"]
@@ -341,12 +374,14 @@ class DropletTracker:
         # each drop's cells moved by its mean velocity; then, for the drops of this step that overlap
         # nothing so, each cell by its own (a satellite lagging its drop at pinch-off lands on itself;
         # moving every cell by its own first would smear a drop in shear onto its neighbour)
-        link_p, link_c = self._overlaps(prev, cur, prev["velocity"][prev["labels"]] * dt)
+        link_p, link_c, shared = self._overlaps(prev, cur, prev["velocity"][prev["labels"]] * dt)
         own = prev.get("cell_velocity")
         free_c = np.setdiff1d(np.arange(n_cur), link_c)
         if own is not None and free_c.size and dt != 0:
-            more_p, more_c = self._overlaps(prev, cur, own * dt, only=free_c)
+            more_p, more_c, more = self._overlaps(prev, cur, own * dt, only=free_c)
             link_p, link_c = np.concatenate([link_p, more_p]), np.concatenate([link_c, more_c])
+            shared = np.concatenate([shared, more])
+        link_p, link_c = _pair_followers(prev, cur, link_p, link_c, shared, dt)
 
         # ------------------------------------------------ gate for droplets overlapping nothing
         free_p = np.setdiff1d(np.arange(n_prev), link_p)
@@ -446,11 +481,50 @@ class DropletTracker:
         events = (pd.concat(self._events, ignore_index=True) if self._events
                   else pd.DataFrame(columns=[*EVENT_COLUMNS, "_order"]))
         if self.ignore_remerge_within and len(events):
-            droplets, events = _drop_remerges(droplets, events, self.ignore_remerge_within)
+            droplets, events = drop_remerges(droplets, events, self.ignore_remerge_within)
         droplets = droplets.drop(columns="_order").reset_index(drop=True)
         events = events[list(EVENT_COLUMNS)].reset_index(drop=True)
         events["step"] = events["step"].astype(droplets["step"].dtype if len(droplets) else np.int64)
         return droplets, events
+
+
+def _pair_followers(prev: dict, cur: dict, link_p, link_c, shared, dt) -> tuple:
+    """The links with every n -> n group (n >= 2) whose drops pair one to one, each pair linked and of
+    volumes within :data:`SAME_VOLUME`, cut to those pairs: drops following each other closer than they
+    move per output overlap the one ahead's old place, which alone would fuse them into a complex event.
+    The pairs: largest total overlap (``scipy.optimize.linear_sum_assignment``), else nearest predicted
+    centroids."""
+    n_prev, n_cur = prev["n"], cur["n"]
+    n = n_prev + n_cur
+    if link_p.size < 3:
+        return link_p, link_c
+    graph = sparse.coo_matrix((np.ones(link_p.size), (link_p, n_prev + link_c)), shape=(n, n))
+    _, group = csgraph.connected_components(graph, directed=False)
+    group_p, group_c = group[:n_prev], group[n_prev:]
+    count_p = np.bincount(group_p, minlength=n)
+    count_c = np.bincount(group_c, minlength=n)
+    cut = np.zeros(link_p.size, dtype=bool)
+    for g in np.flatnonzero((count_p >= 2) & (count_p == count_c)):
+        from scipy.optimize import linear_sum_assignment  # as in the gate: only where needed
+
+        rows, cols = np.flatnonzero(group_p == g), np.flatnonzero(group_c == g)
+        mine = group_p[link_p] == g
+        weight = sparse.coo_matrix((shared[mine], (np.searchsorted(rows, link_p[mine]),
+                                                   np.searchsorted(cols, link_c[mine]))),
+                                   shape=(rows.size, cols.size)).toarray()
+        delta = (prev["centroid"][rows] + prev["velocity"][rows] * dt)[:, None, :] - cur["centroid"][cols][None]
+        lo, hi = cur["box"]
+        for ax in cur["axes"]:
+            delta[..., ax] -= (hi[ax] - lo[ax]) * np.round(delta[..., ax] / (hi[ax] - lo[ax]))
+        for cost in (-weight, np.linalg.norm(delta, axis=2)):
+            i, j = linear_sum_assignment(cost)
+            v_p, v_c = prev["volume"][rows[i]], cur["volume"][cols[j]]
+            if np.all(weight[i, j] > 0) and np.all(np.abs(v_c - v_p) <= SAME_VOLUME * v_p):
+                pairs = set(zip(rows[i].tolist(), cols[j].tolist()))
+                cut |= mine & np.fromiter(((p, c) not in pairs for p, c in zip(link_p, link_c)), dtype=bool,
+                                          count=link_p.size)
+                break
+    return link_p[~cut], link_c[~cut]
 
 
 def _whole_labels(step: dict, outline: MeshOutline) -> np.ndarray:
@@ -462,38 +536,6 @@ def _whole_labels(step: dict, outline: MeshOutline) -> np.ndarray:
     first = order[np.concatenate([[True], whole[order][1:] != whole[order][:-1]])] if order.size else order
     out[whole[first]] = step["labels"][first]
     return out
-
-
-def _drop_remerges(droplets: pd.DataFrame, events: pd.DataFrame, within: int):
-    """Remove breakups whose fragments all merge back within ``within`` steps: step numbers (the series'
-    own, so a run on every other step, or one with a step left out, keeps the same span), not steps added."""
-    droplets = droplets.copy()
-    events = events.copy()
-    drop = np.zeros(len(events), dtype=bool)
-    for i in np.flatnonzero(events["kind"].to_numpy() == "breakup"):  # loop over events, not cells
-        if drop[i]:
-            continue
-        parent, = _track_tokens(events.at[i, "before"])
-        fragments = set(_track_tokens(events.at[i, "after"]))
-        start, step = events.at[i, "_order"], events.at[i, "step"]
-        later = events.index[(events["_order"] > start) & (events["step"] <= step + within) & ~drop]
-        for j in later:
-            involved = set(_track_tokens(events.at[j, "before"])) | set(_track_tokens(events.at[j, "after"]))
-            if not involved & fragments:
-                continue
-            if events.at[j, "kind"] == "coalescence" and set(_track_tokens(events.at[j, "before"])) == fragments:
-                merged, = _track_tokens(events.at[j, "after"])
-                renamed = {int(t) for t in fragments | {merged}} - {int(parent)}
-                mask = droplets["track"].isin(renamed) & (droplets["_order"] >= start)
-                droplets.loc[mask, "track"] = int(parent)
-                drop[[i, j]] = True
-                names = {str(t) for t in renamed}
-                for k in events.index[events["_order"] > events.at[j, "_order"]]:
-                    for column in ("before", "after"):
-                        ids = [parent if t in names else t for t in _track_tokens(events.at[k, column])]
-                        events.at[k, column] = _track_string(set(int(t) for t in ids))
-            break  # the first later event touching the fragments decides
-    return droplets, events[~drop]
 
 
 def track_droplets(sequence, *, min_overlap: float = 0.1, gate: float = 1.0,

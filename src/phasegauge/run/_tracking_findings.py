@@ -2,25 +2,32 @@
 
 Tracks link each step's droplets to the previous step's by the overlap of their cells (moved by the
 velocity where one is given) and, for those overlapping nothing, by the nearest centroid within a
-diameter. When drops move about their own size or more between outputs, without a velocity, a drop's
-cells overlap the drop behind it instead: a track hands its drop over (it shrinks by a large factor,
-with no event, while the volume it held turns up on another track that grew as much, or as a new
-drop: drops growing by condensation or coarsening, or dissolving, change volume too, but do not hand
-it over), or a drop is written as a disappearance and an appearance of the same volume in one step.
+diameter. When drops move about the gap to the drop ahead or more between outputs (half the spacing
+between drops, whatever their own size), without a velocity, a drop's cells overlap the drop ahead's
+old place instead: a track hands its drop over (it shrinks by a large factor, with no event, while the
+volume it held turns up on another track that grew as much, or as a new drop: drops growing by
+condensation or coarsening, or dissolving, change volume too, but do not hand it over); a drop is written
+as a disappearance while another appears in one step, away from the domain's sides; drops are fused into
+a complex event of as many drops on each side and the same volume; or, with a velocity, a track moves
+against it.
 """
 
 from __future__ import annotations
 
 import numpy as np
 
-__all__ = ["tracking_findings", "JUMP_FACTOR", "SAME_VOLUME"]
+from ..analysis import _tracking
+
+__all__ = ["tracking_findings", "JUMP_FACTOR", "SAME_VOLUME", "BACKWARDS"]
 
 #: a one-to-one link whose volume shrinks by this factor or more, with no event, while what it held
 #: turns up on a track that grew as much or as an appearance, looks like a drop handed over (our threshold)
 JUMP_FACTOR = 1.5
-#: a disappearance and an appearance in one step whose volumes agree within this share look like one
-#: drop that moved beyond the gate (our threshold)
-SAME_VOLUME = 0.1
+#: volumes that agree within this share are one drop's (our threshold; the tracker pairs drops so too)
+SAME_VOLUME = _tracking.SAME_VOLUME
+#: a track moving against its velocity by more than this share of the displacement the velocity gives, where
+#: that is at least this share of its diameter, looks like one linked to another drop (our threshold)
+BACKWARDS = 0.25
 
 
 def tracking_findings(droplets, events, options, bounds=None, steps=None, numbered: bool = False) -> list:
@@ -38,7 +45,9 @@ def tracking_findings(droplets, events, options, bounds=None, steps=None, number
     appeared = _appearances(events, edge)
     jumps = _jumps(droplets, events, edge, _rescaled(steps), appeared)
     pairs = _vanished_and_appeared(droplets, events, edge, appeared)
-    if not jumps and not pairs:
+    fused = _fused(events)
+    backwards = _backwards(droplets, events, edge, bounds, getattr(options, "periodic", ()) or ())
+    if not jumps and not pairs and not fused and not backwards:
         return []
     parts = []
     if jumps:
@@ -47,8 +56,15 @@ def tracking_findings(droplets, events, options, bounds=None, steps=None, number
                      f"held (within {100 * SAME_VOLUME:g} %) turns up on another track or as a new drop, with no "
                      f"event (largest factor {factor:.3g} at t = {time:g})")
     if pairs:
-        parts.append(f"{len(pairs)} drop(s) disappear as another of the same volume (within "
-                     f"{100 * SAME_VOLUME:g} %) appears in the same step (first at t = {min(pairs):g})")
+        parts.append(f"{len(pairs)} drop(s) disappear while another appears in the same step, neither at the "
+                     f"domain's sides (first at t = {min(pairs):g})")
+    if fused:
+        parts.append(f"{len(fused)} complex event(s) join as many drops on each side with the same volume "
+                     f"(within {100 * SAME_VOLUME:g} %), as drops following each other do (first at "
+                     f"t = {min(fused):g})")
+    if backwards:
+        parts.append(f"{len(backwards)} track(s) move against their velocity from one step to the next "
+                     f"(first at t = {min(backwards):g})")
     if options.velocity is None:
         fix = "give the velocity field (--velocity) so cells are moved before they are matched"
     elif numbered:
@@ -57,10 +73,12 @@ def tracking_findings(droplets, events, options, bounds=None, steps=None, number
         fix = "write output more often"
     fix += ", or write output more often" if options.velocity is None or numbered else ""
     text = ("droplet tracks may link different drops: " + "; ".join(parts) + ", as when drops move about "
-            f"their own size or more between outputs; {fix} (counts and volumes per step are not affected)")
+            f"the gap to the drop ahead or more between outputs; {fix} (counts and volumes per step are not "
+            "affected)")
     return [Finding("tracking_unreliable", "warning", text,
                     {"jumps": len(jumps), "largest_factor": float(max(jumps)[0]) if jumps else None,
-                     "vanished_and_appeared": len(pairs), "factor_limit": JUMP_FACTOR})]
+                     "vanished_and_appeared": len(pairs), "fused": len(fused), "backwards": len(backwards),
+                     "factor_limit": JUMP_FACTOR})]
 
 
 def _in_events(events) -> set:
@@ -167,9 +185,9 @@ def _touches(droplets, bounds: np.ndarray) -> np.ndarray:
 
 
 def _vanished_and_appeared(droplets, events, edge: set, appeared: dict) -> list:
-    """Times of the steps where a disappearance and one of ``appeared`` (:func:`_appearances`) have volumes
-    within :data:`SAME_VOLUME`, the drops among ``edge`` left out (an outlet and an inlet of equal drops;
-    specks of a few cells)."""
+    """Times of the disappearances in a step with one of ``appeared`` (:func:`_appearances`), whatever the
+    volumes (drops mixed up differ in volume too), the drops among ``edge`` left out (a drop leaving through
+    an outlet as another enters; specks of a few cells)."""
     if events is None or not len(events):
         return []
     steps = np.unique(droplets["step"].to_numpy())
@@ -180,7 +198,55 @@ def _vanished_and_appeared(droplets, events, edge: set, appeared: dict) -> list:
         gone = [v for kind, b, v in zip(group["kind"], group["before"], group["volume_before"])
                 if kind == "disappearance" and not any((last, t) in edge for t in _track_ids(b))]
         new = np.asarray(appeared.get(int(step), []), dtype=float)
-        for volume in gone:
-            if volume > 0 and new.size and np.min(np.abs(new - volume)) <= SAME_VOLUME * volume:
-                times.append(float(time))
+        times += [float(time) for volume in gone if volume > 0 and new.size]
     return times
+
+
+def _fused(events) -> list:
+    """Times of the complex events with as many drops on each side and volumes within :data:`SAME_VOLUME`
+    (drops carried on that the tracker could not pair one to one)."""
+    if events is None or not len(events):
+        return []
+    times = []
+    for kind, time, before, after, v_b, v_a in zip(events["kind"], events["time"], events["before"],
+                                                   events["after"], events["volume_before"],
+                                                   events["volume_after"]):
+        if (kind == "complex" and len(_track_ids(before)) == len(_track_ids(after))
+                and abs(float(v_a) - float(v_b)) <= SAME_VOLUME * float(v_b)):
+            times.append(float(time))
+    return times
+
+
+def _backwards(droplets, events, edge: set, bounds, periodic) -> list:
+    """Times of the one-to-one links (named in no event of the later step, neither drop among ``edge``) whose
+    centroid moves against the drop's velocity (the mean of both steps' ``velocity_*`` times the time
+    between them) by more than :data:`BACKWARDS` of that expected displacement, where that is at least
+    :data:`BACKWARDS` of the drop's equivalent diameter; along ``periodic`` axes, wrapped with ``bounds``."""
+    names = [a for a in "xyz" if f"velocity_{a}" in droplets and f"centroid_{a}" in droplets]
+    if not names or "equivalent_diameter" not in droplets:
+        return []
+    table = droplets.sort_values(["track", "step"])
+    table = table[[(s, t) not in edge for s, t in zip(table["step"], table["track"])]]
+    table = table[~table.duplicated(["step", "track"], keep=False)]
+    named = _in_events(events)
+    steps = np.unique(droplets["step"].to_numpy())
+    following = dict(zip(steps[:-1], steps[1:]))
+    first, second = table.iloc[:-1], table.iloc[1:]
+    same = ((first["track"].to_numpy() == second["track"].to_numpy())
+            & (second["step"].to_numpy() == first["step"].map(following).to_numpy()))
+    dt = second["time"].to_numpy() - first["time"].to_numpy()
+    move = np.stack([second[f"centroid_{a}"].to_numpy() - first[f"centroid_{a}"].to_numpy() for a in names], 1)
+    if bounds is not None:
+        for k, a in enumerate(names):
+            if a in periodic:
+                period = float(bounds[1][ord(a) - ord("x")] - bounds[0][ord(a) - ord("x")])
+                move[:, k] -= period * np.round(move[:, k] / period) if period > 0 else 0.0
+    expected = 0.5 * np.stack([first[f"velocity_{a}"].to_numpy() + second[f"velocity_{a}"].to_numpy()
+                               for a in names], 1) * dt[:, None]
+    along = np.sum(move * expected, axis=1)
+    size = np.sum(expected * expected, axis=1)
+    diameter = first["equivalent_diameter"].to_numpy()
+    with np.errstate(invalid="ignore"):
+        against = same & (size >= (BACKWARDS * diameter) ** 2) & (along < -BACKWARDS * size)
+    return [float(t) for t, s, k in zip(second["time"].to_numpy()[against], second["step"].to_numpy()[against],
+                                        second["track"].to_numpy()[against]) if (int(s), int(k)) not in named]

@@ -137,7 +137,8 @@ class MeasureOptions:
         Periodic axes (``'x'``, ``'y'``, ``'z'``): droplets, widths and bulk distances join across
         them, their boundary planes are never open, and the free energy's stencil wraps there.
     ignore_remerge_within : int
-        A breakup that merges again within this many steps is not an event.
+        A breakup that merges again, or a coalescence that breaks up again into as many drops, within this
+        many steps is not an event.
     densities : tuple of float or None
         Densities of the measured phase and the other phase, for masses.
     diffusivity : float or None
