@@ -130,18 +130,23 @@ def _build_neighbour_table(mesh: Mesh) -> np.ndarray:
 
 
 def pieces(mesh: Mesh, cells: np.ndarray, core: np.ndarray, neighbours: np.ndarray,
-            connectivity: str) -> tuple[int, np.ndarray]:
+            connectivity: str, above: np.ndarray | None = None) -> tuple[int, np.ndarray]:
     """Connected pieces of the core cells without periodic joins: (count, piece per local cell, -1 off core).
 
     ``cells`` are the mesh cells of the local numbering (sorted), ``core`` marks those with
     c > level, ``neighbours`` (len(cells), m) their face neighbours in local numbers (len(cells):
     none). Pieces are numbered in the order of their first cell (raster order of the cell
-    array on regular grids, as ``scipy.ndimage.label``; mesh order elsewhere).
+    array on regular grids, as ``scipy.ndimage.label``; mesh order elsewhere). With ``above``
+    (data on points: True at the points with c > level) and face connectivity, two core cells
+    join where they share a point above the level (:func:`_through_points`), not through any face.
     """
     grid = mesh.regular_grid
     n_local = cells.size
     out = np.full(n_local + 1, -1, dtype=np.int64)  # slot n_local: "no cell"
     core_local = np.flatnonzero(core)
+    if connectivity == "face" and above is not None:
+        count, out[core_local] = _through_points(mesh, cells[core_local], above)
+        return count, out
     if connectivity == "point" and grid is not None:
         from scipy import ndimage  # imported here: it costs ~0.7 s and only this case uses it
 
@@ -179,6 +184,49 @@ def pieces(mesh: Mesh, cells: np.ndarray, core: np.ndarray, neighbours: np.ndarr
         count = int(count.size)
     out[core_local] = sub
     return int(count), out
+
+
+def _through_points(mesh: Mesh, core_cells: np.ndarray, above: np.ndarray) -> tuple[int, np.ndarray]:
+    """Pieces of the core cells joined through their corners above the level: (count, piece per core cell).
+
+    The graph of the core cells and the points with c > level, a cell linked to each of its corners
+    above the level. The region where the interpolant of the point values exceeds the level holds a
+    neighbourhood of each such point, so cells sharing one are joined there; cells sharing only
+    points below the level (a film between two drops, one row of points thick) are not, as the
+    contour c = level of the points is two pieces there. Pieces in the order of their first cell
+    (``connected_components`` numbers them in node order, and the cells come first).
+    """
+    k = core_cells.size
+    if k == 0:
+        return 0, np.empty(0, dtype=np.int64)
+    rows, corners = _corners_above(mesh, core_cells, above)
+    used = np.zeros(above.size, dtype=bool)  # the corners above, numbered after the cells
+    used[corners] = True
+    points = np.flatnonzero(used)
+    number = np.empty(above.size, dtype=np.int64)
+    number[points] = np.arange(k, k + points.size)
+    n = k + points.size
+    graph = sparse.csr_matrix((np.ones(rows.size, dtype=np.int8), (rows, number[corners])), shape=(n, n))
+    count, comp = csgraph.connected_components(graph, directed=False)  # every point joins a cell
+    return int(count), comp[:k].astype(np.int64, copy=False)
+
+
+def _corners_above(mesh: Mesh, cells: np.ndarray, above: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    """(row in ``cells``, corner) of every corner above the level of ``cells`` (sorted), by rows."""
+    if not hasattr(mesh, "blocks"):  # a view of whole cells: its own rows of corners
+        incidence = incidence_rows(mesh, cells)
+        keep = above[incidence.indices]
+        return np.repeat(np.arange(cells.size), np.diff(incidence.indptr))[keep], incidence.indices[keep]
+    row_parts, corner_parts = [], []
+    bounds = np.searchsorted(cells, mesh.block_offsets)
+    for b, block in enumerate(mesh.blocks):
+        lo, hi = int(bounds[b]), int(bounds[b + 1])
+        if hi > lo:
+            corners = block.connectivity[cells[lo:hi] - mesh.block_offsets[b]]
+            keep = above[corners]  # a corner repeated in a degenerate cell: one more link, the same graph
+            row_parts.append(lo + np.nonzero(keep)[0])
+            corner_parts.append(corners[keep])
+    return np.concatenate(row_parts), np.concatenate(corner_parts)
 
 
 def join_periodic(n_pieces: int, piece: np.ndarray, links):
