@@ -167,3 +167,26 @@ def test_point_values_of_the_wrong_shape_are_refused():
     mesh = grid_mesh((4, 4))
     with pytest.raises(OptionError, match="point_values must have shape"):
         label_droplets(mesh, np.zeros(mesh.n_cells), point_values=np.zeros(3))
+
+
+@pytest.mark.parametrize("gap", (0.3, 0.1, -0.5))
+def test_polyhedra_split_count_as_the_lattice_of_points(tmp_path, gap, every_polyhedron_split):
+    """Hexahedra written by VTK as polyhedra and read back split into tetrahedra about their face and
+    cell centres (the centres taking their corners' mean): the whole cells join through the points
+    above the level, the count as skimage's on the hexahedra's lattice of points."""
+    pytest.importorskip("pyvista")
+    from phasegauge.io import Series
+    from phasegauge.meshgen import to_polyhedral_grid
+
+    shape = (24, 12, 12)
+    hexa = grid_mesh(shape, [(0.0, 2.0), (0.0, 1.0), (0.0, 1.0)])
+    c = _two_drops(hexa.coordinates, gap, 2.0 / 24)
+    path = tmp_path / "poly.vtu"
+    to_polyhedral_grid(hexa, point_data={"c": c}).save(str(path))
+    step = Series(str(path)).read(0)
+    split, c_split = step.mesh, np.asarray(step.fields.point_data["c"])
+    assert split.cell_parents is not None
+    n_lattice = int(measure.label((c > 0.5).reshape(tuple(n + 1 for n in shape)), connectivity=1).max())
+    assert n_lattice == (2 if gap > 0 else 1)  # [lib: skimage]
+    found = label_droplets(split, split.point_to_cell(c_split), point_values=c_split)
+    assert found.whole_cells and found.count == n_lattice

@@ -199,34 +199,42 @@ def _through_points(mesh: Mesh, core_cells: np.ndarray, above: np.ndarray) -> tu
     k = core_cells.size
     if k == 0:
         return 0, np.empty(0, dtype=np.int64)
-    rows, corners = _corners_above(mesh, core_cells, above)
+    starts, corners = _corners_above(mesh, core_cells, above)
     used = np.zeros(above.size, dtype=bool)  # the corners above, numbered after the cells
     used[corners] = True
     points = np.flatnonzero(used)
+    del used
     number = np.empty(above.size, dtype=np.int64)
     number[points] = np.arange(k, k + points.size)
     n = k + points.size
-    graph = sparse.csr_matrix((np.ones(rows.size, dtype=np.int8), (rows, number[corners])), shape=(n, n))
+    indptr = np.empty(n + 1, dtype=np.int64)  # rows of the cells, then the points' (empty: one side is enough)
+    indptr[:k + 1] = starts
+    indptr[k + 1:] = starts[-1]
+    graph = sparse.csr_matrix((np.ones(corners.size, dtype=np.int8), number[corners], indptr), shape=(n, n))
     count, comp = csgraph.connected_components(graph, directed=False)  # every point joins a cell
     return int(count), comp[:k].astype(np.int64, copy=False)
 
 
 def _corners_above(mesh: Mesh, cells: np.ndarray, above: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
-    """(row in ``cells``, corner) of every corner above the level of ``cells`` (sorted), by rows."""
+    """The corners above the level of ``cells`` (sorted), row by row: (row starts (len(cells) + 1), corners)."""
     if not hasattr(mesh, "blocks"):  # a view of whole cells: its own rows of corners
         incidence = incidence_rows(mesh, cells)
         keep = above[incidence.indices]
-        return np.repeat(np.arange(cells.size), np.diff(incidence.indptr))[keep], incidence.indices[keep]
-    row_parts, corner_parts = [], []
+        kept = np.zeros(keep.size + 1, dtype=np.int64)
+        np.cumsum(keep, out=kept[1:])
+        return kept[incidence.indptr], incidence.indices[keep]
+    counts, corner_parts = [], []
     bounds = np.searchsorted(cells, mesh.block_offsets)
     for b, block in enumerate(mesh.blocks):
         lo, hi = int(bounds[b]), int(bounds[b + 1])
         if hi > lo:
             corners = block.connectivity[cells[lo:hi] - mesh.block_offsets[b]]
             keep = above[corners]  # a corner repeated in a degenerate cell: one more link, the same graph
-            row_parts.append(lo + np.nonzero(keep)[0])
+            counts.append(np.count_nonzero(keep, axis=1))
             corner_parts.append(corners[keep])
-    return np.concatenate(row_parts), np.concatenate(corner_parts)
+    starts = np.zeros(cells.size + 1, dtype=np.int64)
+    np.cumsum(np.concatenate(counts), out=starts[1:])
+    return starts, np.concatenate(corner_parts)
 
 
 def join_periodic(n_pieces: int, piece: np.ndarray, links):
