@@ -190,3 +190,26 @@ def test_polyhedra_split_count_as_the_lattice_of_points(tmp_path, gap, every_pol
     assert n_lattice == (2 if gap > 0 else 1)  # [lib: skimage]
     found = label_droplets(split, split.point_to_cell(c_split), point_values=c_split)
     assert found.whole_cells and found.count == n_lattice
+
+
+@pytest.mark.parametrize("gap", (0.6, 0.1, -0.3))
+def test_a_film_on_the_periodic_plane(gap):
+    """Two drops either side of the periodic plane x = 0 (= 2, its points written on both planes): joined
+    across it only through points above the level, as skimage's label on the lattice of points wrapped
+    (the plane written once, rolled half a period so the film lies inside)."""
+    shape, h = (40, 20), 0.05
+    mesh = grid_mesh(shape, [(0.0, 2.0), (0.0, 1.0)])
+    X = mesh.coordinates[:, :2]
+    d = R + gap * h / 2
+    centres = ((d, 0.5), (2.0 - d, 0.5), (-d, 0.5), (2.0 + d, 0.5))  # and their images a period away
+    sd = np.max([R - np.linalg.norm(X - np.array(o), axis=1) for o in centres], axis=0)
+    c = 0.5 * (1.0 + np.tanh(sd / (np.sqrt(2.0) * 0.5 * h)))
+    lattice = c.reshape(shape[0] + 1, shape[1] + 1)[:-1]  # the plane x = 2 is the plane x = 0
+    wrapped = np.roll(lattice, shape[0] // 2, axis=0)
+    n_lattice = int(measure.label(wrapped > 0.5, connectivity=1).max())  # [lib: skimage]
+    assert n_lattice == (2 if gap > 0 else 1)
+    found = label_droplets(mesh, mesh.point_to_cell(c), point_values=c, periodic=("x",))
+    assert found.count == n_lattice
+    assert not found.table["spanning"].any()
+    if gap < 0:  # one drop across the plane: its centroid on the plane, its volume both halves'
+        assert abs(found.table["centroid_x"].iloc[0] % 2.0 - 1.0) == pytest.approx(1.0, abs=1e-9)

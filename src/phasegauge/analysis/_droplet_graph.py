@@ -18,7 +18,7 @@ from ..model._whole_cells import WholeCells, whole_cell_count
 from ..model.corners import incidence_rows
 from ..model.mesh import Mesh
 
-__all__ = ["periodic_pairs", "neighbour_table", "pieces", "join_periodic"]
+__all__ = ["periodic_pairs", "neighbour_table", "pieces", "join_periodic", "pairs_through_points"]
 
 
 def periodic_pairs(mesh: Mesh, axis: int, *, whole: bool = False):
@@ -235,6 +235,34 @@ def _corners_above(mesh: Mesh, cells: np.ndarray, above: np.ndarray) -> tuple[np
     starts = np.zeros(cells.size + 1, dtype=np.int64)
     np.cumsum(np.concatenate(counts), out=starts[1:])
     return starts, np.concatenate(corner_parts)
+
+
+def pairs_through_points(mesh: Mesh, coordinates: np.ndarray, cells: np.ndarray, core: np.ndarray,
+                         pairs: np.ndarray, above: np.ndarray, axis: int, lo: float, period: float) -> np.ndarray:
+    """The periodic pairs (local numbers, ``cells.size``: none) of two core cells joined through a point above
+    the level on the periodic plane: the low cell's on the low plane or the high cell's on the high plane
+    (a point written on both planes, or the two planes a spacing apart); with data on points, as
+    :func:`_through_points` joins the cells inside the mesh."""
+    n = cells.size
+    inside = (pairs < n).all(axis=1)
+    pairs = pairs[inside]
+    pairs = pairs[core[pairs[:, 0]] & core[pairs[:, 1]]]
+    if not pairs.size:
+        return pairs
+    tol = 1e-6 * period
+    keep = (_above_on_plane(mesh, coordinates, cells[pairs[:, 0]], above, axis, lo, tol)
+            | _above_on_plane(mesh, coordinates, cells[pairs[:, 1]], above, axis, lo + period, tol))
+    return pairs[keep]
+
+
+def _above_on_plane(mesh: Mesh, coordinates: np.ndarray, cells: np.ndarray, above: np.ndarray, axis: int,
+                    plane: float, tol: float) -> np.ndarray:
+    """True for each of ``cells`` with a corner above the level on the plane ``x[axis] = plane``."""
+    unique, back = np.unique(cells, return_inverse=True)
+    starts, corners = _corners_above(mesh, unique, above)
+    on = np.zeros(corners.size + 1, dtype=np.int64)
+    np.cumsum(np.abs(coordinates[corners, axis] - plane) <= tol, out=on[1:])
+    return (on[starts[1:]] > on[starts[:-1]])[back.ravel()]
 
 
 def join_periodic(n_pieces: int, piece: np.ndarray, links):

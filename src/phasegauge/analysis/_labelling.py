@@ -59,7 +59,7 @@ from ..model._centroids import cell_centroids_of
 from ..model._grouping import index_dtype
 from ..model._whole_cells import WholeCells, whole_cells
 from ._band_sharing import finish_far_band, share_band
-from ._droplet_graph import join_periodic, neighbour_table, periodic_pairs, pieces
+from ._droplet_graph import join_periodic, neighbour_table, pairs_through_points, periodic_pairs, pieces
 from ._droplet_measures import (TABLE_COLUMNS, _at_cells, contour_owners, droplet_boxes, droplet_table,
                                 mean_velocity, shape_factors, volume_integrals)
 
@@ -497,11 +497,16 @@ def label_droplets(mesh: Mesh, c_cell, *, level: float = 0.5, connectivity: str 
     cells, core_local = near.cells, near.core_local
 
     n_pieces, piece = pieces(mesh, cells, near.core, near.neighbours, connectivity, above)
-    del above
     links = [periodic_pairs(source, ax, whole=split) for ax in axes]  # (pairs, low end, period) per axis
     local_links = [(local[pairs], lo, period) for pairs, lo, period in links]
     del local  # mesh-wide (4 bytes a cell): the near cells' own numbers from here on
-    n_drop, droplet_of_piece, offset, spanning = join_periodic(n_pieces, piece, local_links)
+    joins = local_links  # the band is shared through every pair; the cores join through points above the level
+    if above is not None and connectivity == "face" and axes:
+        joins = [(pairs_through_points(mesh, source.coordinates, cells, near.core, pairs, above, ax, lo, period),
+                  lo, period) for ax, (pairs, lo, period) in zip(axes, local_links)]
+    del above
+    n_drop, droplet_of_piece, offset, spanning = join_periodic(n_pieces, piece, joins)
+    del joins
     label, spanning = _number_droplets(near, piece, droplet_of_piece, n_drop, spanning)
     shared, root = _share(mesh, near, label, links, local_links)
 
