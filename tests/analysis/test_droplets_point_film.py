@@ -213,3 +213,21 @@ def test_a_film_on_the_periodic_plane(gap):
     assert not found.table["spanning"].any()
     if gap < 0:  # one drop across the plane: its centroid on the plane, its volume both halves'
         assert abs(found.table["centroid_x"].iloc[0] % 2.0 - 1.0) == pytest.approx(1.0, abs=1e-9)
+
+
+def test_the_bias_left_a_neck_of_one_row_of_points():
+    """The bias the rule leaves (stated in the README): two blocks joined by one row of points at 0.6
+    whose neighbours sit at 0.3, so every cell beside the row averages 0.45, are two droplets, while
+    the points above the level are one piece (skimage's label, connectivity 1)."""
+    shape = (20, 10)
+    mesh = grid_mesh(shape)
+    lattice = np.zeros((shape[0] + 1, shape[1] + 1))
+    lattice[2:8, 2:9] = 1.0
+    lattice[13:19, 2:9] = 1.0
+    lattice[8:13, 4:7] = 0.3  # the neck's sides
+    lattice[8:13, 5] = 0.6  # the neck's row of points, above the level
+    assert int(measure.label(lattice > 0.5, connectivity=1).max()) == 1  # [lib: skimage]
+    c = lattice.ravel()  # meshgen's points in "ij" order
+    cells = mesh.point_to_cell(c)
+    assert cells[np.abs(mesh.cell_centroids[:, 0] - 0.5) < 0.1].max() < 0.5  # our construction: 0.45 at most
+    assert _count(mesh, c) == 2
