@@ -18,7 +18,7 @@ from ..model._whole_cells import WholeCells, whole_cell_count
 from ..model.corners import incidence_rows
 from ..model.mesh import Mesh
 
-__all__ = ["periodic_pairs", "neighbour_table", "pieces", "join_periodic"]
+__all__ = ["periodic_pairs", "neighbour_table", "pieces", "join_periodic", "pairs_through_points"]
 
 
 def periodic_pairs(mesh: Mesh, axis: int, *, whole: bool = False):
@@ -130,18 +130,23 @@ def _build_neighbour_table(mesh: Mesh) -> np.ndarray:
 
 
 def pieces(mesh: Mesh, cells: np.ndarray, core: np.ndarray, neighbours: np.ndarray,
-            connectivity: str) -> tuple[int, np.ndarray]:
+            connectivity: str, above: np.ndarray | None = None) -> tuple[int, np.ndarray]:
     """Connected pieces of the core cells without periodic joins: (count, piece per local cell, -1 off core).
 
     ``cells`` are the mesh cells of the local numbering (sorted), ``core`` marks those with
     c > level, ``neighbours`` (len(cells), m) their face neighbours in local numbers (len(cells):
     none). Pieces are numbered in the order of their first cell (raster order of the cell
-    array on regular grids, as ``scipy.ndimage.label``; mesh order elsewhere).
+    array on regular grids, as ``scipy.ndimage.label``; mesh order elsewhere). With ``above``
+    (data on points: True at the points with c > level) and face connectivity, two core cells
+    join where they share a point above the level (:func:`_through_points`), not through any face.
     """
     grid = mesh.regular_grid
     n_local = cells.size
     out = np.full(n_local + 1, -1, dtype=np.int64)  # slot n_local: "no cell"
     core_local = np.flatnonzero(core)
+    if connectivity == "face" and above is not None:
+        count, out[core_local] = _through_points(mesh, cells[core_local], above)
+        return count, out
     if connectivity == "point" and grid is not None:
         from scipy import ndimage  # imported here: it costs ~0.7 s and only this case uses it
 
@@ -179,6 +184,85 @@ def pieces(mesh: Mesh, cells: np.ndarray, core: np.ndarray, neighbours: np.ndarr
         count = int(count.size)
     out[core_local] = sub
     return int(count), out
+
+
+def _through_points(mesh: Mesh, core_cells: np.ndarray, above: np.ndarray) -> tuple[int, np.ndarray]:
+    """Pieces of the core cells joined through their corners above the level: (count, piece per core cell).
+
+    The graph of the core cells and the points with c > level, a cell linked to each of its corners
+    above the level. The region where the interpolant of the point values exceeds the level holds a
+    neighbourhood of each such point, so cells sharing one are joined there; cells sharing only
+    points below the level (a film between two drops, one row of points thick) are not, as the
+    contour c = level of the points is two pieces there. Pieces in the order of their first cell
+    (``connected_components`` numbers them in node order, and the cells come first).
+    """
+    k = core_cells.size
+    if k == 0:
+        return 0, np.empty(0, dtype=np.int64)
+    starts, corners = _corners_above(mesh, core_cells, above)
+    used = np.zeros(above.size, dtype=bool)  # the corners above, numbered after the cells
+    used[corners] = True
+    points = np.flatnonzero(used)
+    del used
+    number = np.empty(above.size, dtype=np.int64)
+    number[points] = np.arange(k, k + points.size)
+    n = k + points.size
+    indptr = np.empty(n + 1, dtype=np.int64)  # rows of the cells, then the points' (empty: one side is enough)
+    indptr[:k + 1] = starts
+    indptr[k + 1:] = starts[-1]
+    graph = sparse.csr_matrix((np.ones(corners.size, dtype=np.int8), number[corners], indptr), shape=(n, n))
+    count, comp = csgraph.connected_components(graph, directed=False)  # every point joins a cell
+    return int(count), comp[:k].astype(np.int64, copy=False)
+
+
+def _corners_above(mesh: Mesh, cells: np.ndarray, above: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    """The corners above the level of ``cells`` (sorted), row by row: (row starts (len(cells) + 1), corners)."""
+    if not hasattr(mesh, "blocks"):  # a view of whole cells: its own rows of corners
+        incidence = incidence_rows(mesh, cells)
+        keep = above[incidence.indices]
+        kept = np.zeros(keep.size + 1, dtype=np.int64)
+        np.cumsum(keep, out=kept[1:])
+        return kept[incidence.indptr], incidence.indices[keep]
+    counts, corner_parts = [], []
+    bounds = np.searchsorted(cells, mesh.block_offsets)
+    for b, block in enumerate(mesh.blocks):
+        lo, hi = int(bounds[b]), int(bounds[b + 1])
+        if hi > lo:
+            corners = block.connectivity[cells[lo:hi] - mesh.block_offsets[b]]
+            keep = above[corners]  # a corner repeated in a degenerate cell: one more link, the same graph
+            counts.append(np.count_nonzero(keep, axis=1))
+            corner_parts.append(corners[keep])
+    starts = np.zeros(cells.size + 1, dtype=np.int64)
+    np.cumsum(np.concatenate(counts), out=starts[1:])
+    return starts, np.concatenate(corner_parts)
+
+
+def pairs_through_points(mesh: Mesh, coordinates: np.ndarray, cells: np.ndarray, core: np.ndarray,
+                         pairs: np.ndarray, above: np.ndarray, axis: int, lo: float, period: float) -> np.ndarray:
+    """The periodic pairs (local numbers, ``cells.size``: none) of two core cells joined through a point above
+    the level on the periodic plane: the low cell's on the low plane or the high cell's on the high plane
+    (a point written on both planes, or the two planes a spacing apart); with data on points, as
+    :func:`_through_points` joins the cells inside the mesh."""
+    n = cells.size
+    inside = (pairs < n).all(axis=1)
+    pairs = pairs[inside]
+    pairs = pairs[core[pairs[:, 0]] & core[pairs[:, 1]]]
+    if not pairs.size:
+        return pairs
+    tol = 1e-6 * period
+    keep = (_above_on_plane(mesh, coordinates, cells[pairs[:, 0]], above, axis, lo, tol)
+            | _above_on_plane(mesh, coordinates, cells[pairs[:, 1]], above, axis, lo + period, tol))
+    return pairs[keep]
+
+
+def _above_on_plane(mesh: Mesh, coordinates: np.ndarray, cells: np.ndarray, above: np.ndarray, axis: int,
+                    plane: float, tol: float) -> np.ndarray:
+    """True for each of ``cells`` with a corner above the level on the plane ``x[axis] = plane``."""
+    unique, back = np.unique(cells, return_inverse=True)
+    starts, corners = _corners_above(mesh, unique, above)
+    on = np.zeros(corners.size + 1, dtype=np.int64)
+    np.cumsum(np.abs(coordinates[corners, axis] - plane) <= tol, out=on[1:])
+    return (on[starts[1:]] > on[starts[:-1]])[back.ravel()]
 
 
 def join_periodic(n_pieces: int, piece: np.ndarray, links):

@@ -12,6 +12,9 @@ grid, ``mesh.face_pairs`` elsewhere). Steps 1 and 2 live in ``_droplet_graph``, 
    to those cells (on a regular grid numbered in the raster order of
    ``scipy.ndimage.label``), or for point adjacency on the cell-point graph
    (``scipy.ndimage.label`` with the full structure on a regular grid).
+   With data on points (``point_values``) face adjacency is the graph of the
+   cells and their corners with c > level: two cells join where they share a
+   point above the level, as the region the contour of the points bounds does.
 2. *Periodic joins.* Boundary faces on the low and high side of each periodic
    axis are matched by their centre coordinates in the other axes (a KD-tree),
    giving cell pairs across the boundary. Pieces linked by such pairs form one
@@ -56,7 +59,7 @@ from ..model._centroids import cell_centroids_of
 from ..model._grouping import index_dtype
 from ..model._whole_cells import WholeCells, whole_cells
 from ._band_sharing import finish_far_band, share_band
-from ._droplet_graph import join_periodic, neighbour_table, periodic_pairs, pieces
+from ._droplet_graph import join_periodic, neighbour_table, pairs_through_points, periodic_pairs, pieces
 from ._droplet_measures import (TABLE_COLUMNS, _at_cells, contour_owners, droplet_boxes, droplet_table,
                                 mean_velocity, shape_factors, volume_integrals)
 
@@ -298,7 +301,7 @@ def _on_mesh(mesh: Mesh, cells: np.ndarray, local_values: np.ndarray) -> np.ndar
 def label_droplets(mesh: Mesh, c_cell, *, level: float = 0.5, connectivity: str = "face",
                    periodic=(), velocity=None, interface_cells=None, interface_sizes=None,
                    interface_centres=None, interface_normals=None, band_floor: float = 1e-3,
-                   resolution_cells: float = 2.0, bulk=None) -> DropletLabels:
+                   resolution_cells: float = 2.0, bulk=None, point_values=None) -> DropletLabels:
     """Label the droplets (connected regions of ``c > level``) and measure each one.
 
     Parameters
@@ -306,15 +309,18 @@ def label_droplets(mesh: Mesh, c_cell, *, level: float = 0.5, connectivity: str 
     mesh : Mesh
         On a mesh of split cells (:attr:`Mesh.cell_parents`) the droplets are sets of whole cells
         (see Notes), and the returned arrays are numbered per whole cell.
-    c_cell : ndarray of shape (n_cells,), dimensionless, nominally in [0, 1]
+    c_cell : ndarray of shape (n_cells,), dimensionless, nominally in [0, 1], or an Indicator
         Phase indicator per cell. NaN cells belong to no droplet and are kept
-        out of every integral; values are used as given (not clipped).
+        out of every integral; values are used as given (not clipped). An
+        :class:`~phasegauge.model.indicator.Indicator` of data on points also
+        gives ``point_values`` (its ``point``).
     level : float
         Cells with ``c > level`` form the droplets' cores.
     connectivity : {'face', 'point'}
         Cells are connected through a shared edge (2D) or face (3D), or
         through any shared point. Point adjacency joins droplets that touch
-        only at a corner.
+        only at a corner. With ``point_values``, face adjacency joins two
+        cells where they share a point with c > level (see Notes).
     periodic : sequence of {'x', 'y', 'z'}
         Periodic axes: regions crossing the boundary are joined, their
         centroids unwrapped, and a region wrapping the whole period is marked
@@ -346,6 +352,11 @@ def label_droplets(mesh: Mesh, c_cell, *, level: float = 0.5, connectivity: str 
         ``band_floor`` read on the same scale: a matrix whose bulk sits off 0
         (a Cahn-Hilliard run) adds nothing to a droplet's volume, and a
         droplet's inside counts fully though its bulk sits off 1.
+    point_values : ndarray of shape (n_points,), optional
+        The indicator on the points when the data is on points (``c_cell``
+        then being the means of the corners): the cores join through the
+        points above the level (see Notes). Read on the scale of ``c_cell``,
+        before ``bulk`` rescales both.
 
     Returns
     -------
@@ -393,6 +404,19 @@ def label_droplets(mesh: Mesh, c_cell, *, level: float = 0.5, connectivity: str 
     region that touches no droplet are left out of every droplet. Point
     connectivity applies to the cores; the band is always shared through
     faces.
+
+    Data on points: a cell's c is the mean of its corners, so the cells on
+    both sides of a film one row of points thick whose points lie below the
+    level can lie above it, and joined through their shared face they would
+    make one droplet of two drops that the contour c = level of the points
+    still shows apart. With ``point_values`` two core cells join only where
+    they share a point above the level, whose neighbourhood the region above
+    the level holds: on simplices the droplets are then the pieces of that
+    region (of its piecewise-linear interpolant) that hold core cells, as
+    ``skimage.measure.label`` on a lattice of points (connectivity 1) gives
+    them. A neck above the level on points whose cells all average below it
+    (one row of points) joins nothing: its two sides are two droplets while
+    the contour is one piece.
 
     Every contour element bounds a droplet and counts in its perimeter or
     surface. An element in a core cell (c above the level) bounds that
@@ -447,6 +471,7 @@ def label_droplets(mesh: Mesh, c_cell, *, level: float = 0.5, connectivity: str 
     """
     level, band_floor = _check_options(level, connectivity, band_floor, interface_cells, interface_sizes)
     names, axes = _normalize_periodic(mesh, periodic)
+    above = _points_above(mesh, c_cell, point_values, level)
     c = cell_values(mesh, c_cell, "c_cell")
     vel = None if velocity is None else vector_values(mesh, velocity, "velocity", "cell")[0]
     icells, isizes, places = _contour_arrays(mesh, interface_cells, interface_sizes, interface_centres,
@@ -471,11 +496,17 @@ def label_droplets(mesh: Mesh, c_cell, *, level: float = 0.5, connectivity: str 
     del c0
     cells, core_local = near.cells, near.core_local
 
-    n_pieces, piece = pieces(mesh, cells, near.core, near.neighbours, connectivity)
+    n_pieces, piece = pieces(mesh, cells, near.core, near.neighbours, connectivity, above)
     links = [periodic_pairs(source, ax, whole=split) for ax in axes]  # (pairs, low end, period) per axis
     local_links = [(local[pairs], lo, period) for pairs, lo, period in links]
     del local  # mesh-wide (4 bytes a cell): the near cells' own numbers from here on
-    n_drop, droplet_of_piece, offset, spanning = join_periodic(n_pieces, piece, local_links)
+    joins = local_links  # the band is shared through every pair; the cores join through points above the level
+    if above is not None and connectivity == "face" and axes:
+        joins = [(pairs_through_points(mesh, source.coordinates, cells, near.core, pairs, above, ax, lo, period),
+                  lo, period) for ax, (pairs, lo, period) in zip(axes, local_links)]
+    del above
+    n_drop, droplet_of_piece, offset, spanning = join_periodic(n_pieces, piece, joins)
+    del joins
     label, spanning = _number_droplets(near, piece, droplet_of_piece, n_drop, spanning)
     shared, root = _share(mesh, near, label, links, local_links)
 
@@ -510,6 +541,20 @@ def label_droplets(mesh: Mesh, c_cell, *, level: float = 0.5, connectivity: str 
     del label
     return DropletLabels(labels=labels_out, shared_labels=_on_mesh(mesh, cells, shared),
                          table=table, weights=weights, level=given_level, periodic=names, whole_cells=split)
+
+
+def _points_above(mesh: Mesh, c_cell, point_values, level: float):
+    """True at the points with c > level when the data is on points (``point_values``, or an
+    Indicator of data on points), else None."""
+    if point_values is None and getattr(c_cell, "location", None) == "point" and hasattr(c_cell, "point"):
+        point_values = c_cell.point
+    if point_values is None:
+        return None
+    values = np.asarray(point_values, dtype=np.float64)
+    if values.shape != (mesh.n_points,):
+        raise OptionError(f"point_values must have shape ({mesh.n_points},): one value per point, "
+                          f"found shape {values.shape}", fix="give the indicator on the points (an Indicator's .point)")
+    return values > level  # NaN: not above
 
 
 def _between_plateaus(c, level, bulk):

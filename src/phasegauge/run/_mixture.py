@@ -282,7 +282,8 @@ def _drop_phase(mesh, ind, droplets, options):
 
     c = np.asarray(ind.cell, dtype=float)
     other = label_droplets(mesh, 1.0 - c, level=1.0 - options.level, connectivity=options.adjacency,
-                           periodic=tuple(options.periodic)).table
+                           periodic=tuple(options.periodic),
+                           point_values=1.0 - ind.point if ind.location == "point" else None).table
     bounds = mesh.bounds  # (the boxes are in space: x, y, z)
     counts = [_bounded_regions(droplets, bounds), _bounded_regions(other, bounds)]
     if counts[0] != counts[1]:

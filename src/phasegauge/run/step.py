@@ -389,7 +389,7 @@ def _label_droplets(mesh, ind, options, u_cell, contour, plateaus):
 
     low, high, tail = plateaus
     return droplets.label_droplets(
-        mesh, ind.cell, level=options.level, connectivity=options.adjacency, periodic=tuple(options.periodic),
+        mesh, ind, level=options.level, connectivity=options.adjacency, periodic=tuple(options.periodic),
         velocity=u_cell, interface_cells=contour.cells, interface_sizes=contour.element_sizes,
         interface_centres=contour.centroids, interface_normals=contour.normals, bulk=(low, high),
         band_floor=max(1e-3, tail) if (low, high) != (0.0, 1.0) else 1e-3)
