@@ -43,6 +43,7 @@ def test_vector_field_stacks_scalar_components_in_the_order_named():
     assert location == "cell" and values.tolist() == [[1.0, 2.0, 0.0]] * 3
     values, location = vector_field(fields, "u.y,w,u.x", dimension=3)
     assert location == "cell" and values.tolist() == [[2.0, 3.0, 1.0]] * 3
+    assert vector_field(fields, "u.x,u.y,w", dimension=2)[0].tolist() == [[1.0, 2.0, 3.0]] * 3  # a slab's three
     values, _ = vector_field(fields, "u.x,u.y", plane_axes=(0, 2))  # a 2D mesh in the x-z plane
     assert values.tolist() == [[1.0, 0.0, 2.0]] * 3
     with pytest.raises(FieldShapeError, match=r"component 'P' must be a scalar field, found shape \(5, 3\)"):
