@@ -49,7 +49,8 @@ _measure_options = (
     click.option("--level", type=float, default=0.5, show_default=True,
                  help="Indicator level of the interface and of droplets."),
     click.option("--velocity", default=None,
-                 help="Velocity field (droplet velocities, tracking, flow-weighted sections)."),
+                 help="Velocity field (droplet velocities, tracking, flow-weighted sections, boundary flow), "
+                      "or its 2 or 3 scalar components in x, y(, z) order: u.x,u.y."),
     click.option("--field-location", type=click.Choice(["cell", "point"]), default=None,
                  help="Which copy of a field written on cells and on points under one name to read "
                       "(default: the cell copy, the solver's own values)."),

@@ -458,8 +458,9 @@ def samples(directory, only, overwrite, list_names):
 @click.option("--range-b", default="0,1", show_default=True, help="LO,HI of the second run's field.")
 @click.option("--phase-a", type=click.Choice(["upper", "lower"]), default="upper", show_default=True)
 @click.option("--phase-b", type=click.Choice(["upper", "lower"]), default="upper", show_default=True)
-@click.option("--velocity-a", default=None, help="Velocity field of the first run (rise velocity).")
-@click.option("--velocity-b", default=None, help="Velocity field of the second run.")
+@click.option("--velocity-a", default=None, help="Velocity field of the first run (rise velocity), or its "
+              "scalar components, as for measure.")
+@click.option("--velocity-b", default=None, help="Velocity field of the second run, as --velocity-a.")
 @click.option("--label-a", default="first", show_default=True, help="Name of the first run in tables.")
 @click.option("--label-b", default="second", show_default=True, help="Name of the second run in tables.")
 @click.option("--level", type=float, default=0.5, show_default=True, help="Indicator level of the interfaces.")

@@ -7,7 +7,7 @@ A measure recipe::
     field = "phi"
     range = [-1, 1]
     phase = "upper"            # optional
-    velocity = "velocity"      # optional
+    velocity = "velocity"      # optional: or its scalar components, ["u.x", "u.y"] or "u.x,u.y"
     field_location = "cell"    # optional: which copy of a field written on cells and points
     sort_by_time = false       # optional: order the steps by the times in their files
     steps = "0:100:5"          # optional: step numbers START:STOP:STRIDE (STOP excluded)
@@ -95,7 +95,7 @@ __all__ = ["load_recipe", "run_recipe", "RECIPE_SCHEMA", "COMPARE_SCHEMA", "CAMP
 OLD_KEYS = MappingProxyType({("mixing", "target"): "mixing_target",
                              ("miscibility", "tolerance"): "equilibrium_tolerance"})
 
-_INPUT = {"path": str, "field": str, "range": list, "phase": str, "velocity": str, "label": str,
+_INPUT = {"path": str, "field": str, "range": list, "phase": str, "velocity": (str, list), "label": str,
           "field_location": str, "sort_by_time": bool, "level_set": bool}
 
 RECIPE_SCHEMA = {
@@ -212,8 +212,9 @@ def load_recipe(path) -> dict:
             else:
                 ok = isinstance(value, expected)
             if not ok:
-                names = expected.__name__ if isinstance(expected, type) else "number"
-                raise OptionError(f"[{table}] {key} must be a {_type_word(names)}, found {value!r}",
+                names = (_type_word(expected.__name__) if isinstance(expected, type) else "number"
+                         if expected == (int, float) else " or a ".join(_type_word(t.__name__) for t in expected))
+                raise OptionError(f"[{table}] {key} must be a {names}, found {value!r}",
                                   where=path, fix="correct the value")
     for table, keys in _REQUIRED[kind].items():
         for key in keys:

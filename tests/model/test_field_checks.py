@@ -6,7 +6,8 @@ import pytest
 from phasegauge.errors import FieldNotFoundError, FieldShapeError, OptionError
 from phasegauge.io import StepFields
 from phasegauge.meshgen import grid_mesh
-from phasegauge.model.fields import cell_values, field_location, named_field, vector_field, vector_values
+from phasegauge.model.fields import (cell_values, field_location, named_field, vector_field, vector_values,
+                                     velocity_name)
 from phasegauge.model.indicator import make_indicator
 
 
@@ -24,6 +25,31 @@ def test_vector_field_pads_two_components_and_refuses_scalars():
     assert location == "cell" and values.shape == (3, 3) and not values[:, 2].any()
     with pytest.raises(FieldShapeError, match="velocity field 'c' must have 2 or 3 components"):
         vector_field(fields, "c")
+
+
+def test_velocity_name_keeps_one_text_for_the_components():
+    assert velocity_name(None) is None and velocity_name("U") == "U"
+    assert velocity_name(("u.x", "u.y")) == velocity_name(["u.x", "u.y"]) == velocity_name(" u.x , u.y") == "u.x,u.y"
+    assert velocity_name(["U"]) == "U"
+    for bad in ("u.x,", "a,b,c,d", ("u.x", 3)):
+        with pytest.raises(OptionError, match="velocity"):
+            velocity_name(bad)
+
+
+def test_vector_field_stacks_scalar_components_in_the_order_named():
+    fields = StepFields(cell_data={"u.x": np.full(3, 1.0), "u.y": np.full((3, 1), 2.0), "w": np.full(3, 3.0)},
+                        point_data={"u.x": np.zeros(5), "u.y": np.zeros(5), "P": np.zeros((5, 3))})
+    values, location = vector_field(fields, "u.x,u.y")  # cells where each has a copy on both
+    assert location == "cell" and values.tolist() == [[1.0, 2.0, 0.0]] * 3
+    values, location = vector_field(fields, "u.y,w,u.x", dimension=3)
+    assert location == "cell" and values.tolist() == [[2.0, 3.0, 1.0]] * 3
+    assert vector_field(fields, "u.x,u.y,w", dimension=2)[0].tolist() == [[1.0, 2.0, 3.0]] * 3  # a slab's three
+    values, _ = vector_field(fields, "u.x,u.y", plane_axes=(0, 2))  # a 2D mesh in the x-z plane
+    assert values.tolist() == [[1.0, 0.0, 2.0]] * 3
+    with pytest.raises(FieldShapeError, match=r"component 'P' must be a scalar field, found shape \(5, 3\)"):
+        vector_field(fields, "u.x,P")
+    with pytest.raises(FieldNotFoundError, match=r"velocity field 'u.x,v': component 'v' not found; fields there"):
+        vector_field(fields, "u.x,v")
 
 
 def test_array_checks_say_what_shape_was_expected():

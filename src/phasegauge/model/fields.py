@@ -5,7 +5,8 @@ gets the same message wherever it is passed:
 
 * :func:`named_field` and :func:`vector_field` find a field of a step by name
   (``fields`` is any object with ``point_data`` and ``cell_data`` dicts, such as
-  :class:`phasegauge.io.StepFields`);
+  :class:`phasegauge.io.StepFields`); a vector may be named by its scalar components,
+  ``'u.x,u.y'`` (:func:`velocity_name` normalises the option);
 * :func:`field_location`, :func:`cell_values` and :func:`vector_values` check an
   array against a mesh and say where it lives (points or cells).
 """
@@ -16,7 +17,7 @@ import numpy as np
 
 from ..errors import FieldNotFoundError, FieldShapeError, OptionError
 
-__all__ = ["named_field", "vector_field", "field_location", "cell_values", "vector_values"]
+__all__ = ["named_field", "vector_field", "velocity_name", "field_location", "cell_values", "vector_values"]
 
 
 def named_field(fields, name: str, *, where: str = "", role: str = "field", fix: str = "",
@@ -73,12 +74,72 @@ def named_field(fields, name: str, *, where: str = "", role: str = "field", fix:
                              where=where, fix=fix)
 
 
+def velocity_name(velocity) -> str | None:
+    """The velocity option as one text: a vector field's name, or its scalar components joined by commas.
+
+    Parameters
+    ----------
+    velocity : str, sequence of str, or None
+        ``'U'``; ``'u.x,u.y'`` or ``('u.x', 'u.y')``: 2 or 3 scalar fields, the components along x, y(, z)
+        (along a 2D mesh's plane axes when 2).
+
+    Returns
+    -------
+    str or None
+        The name, or the components as ``'u.x,u.y'`` (spaces around the commas dropped).
+
+    Raises
+    ------
+    OptionError
+        An empty name, or a count of components other than 2 or 3.
+    """
+    if velocity is None:
+        return None
+    if isinstance(velocity, str):
+        if "," not in velocity:
+            return velocity
+        parts = [part.strip() for part in velocity.split(",")]
+    else:
+        parts = list(velocity)
+        if not all(isinstance(part, str) for part in parts):
+            raise OptionError(f"velocity must be a field name or a list of field names, found {velocity!r}",
+                              fix="give the vector field (U) or its scalar components in x, y, z order (u.x,u.y)")
+        parts = [part.strip() for part in parts]
+        if len(parts) == 1:
+            return parts[0]
+    if not all(parts) or len(parts) not in (2, 3):
+        raise OptionError(f"velocity components must be 2 or 3 field names, found {','.join(parts)!r}",
+                          fix="give the scalar components in x, y(, z) order (u.x,u.y or Ux,Uy,Uz), or the vector "
+                              "field alone")
+    return ",".join(parts)
+
+
+def _component_groups(names) -> list:
+    """Scalar fields named alike but for one letter x, y(, z) at one place (u.x u.y, Ux Uy Uz, x_velocity ...)."""
+    groups = {}
+    for name in names:
+        for i, letter in enumerate(name):
+            if letter.lower() in "xyz":
+                key = (name[:i], name[i + 1:], letter.isupper())
+                groups.setdefault(key, {})[letter.lower()] = name
+    found = []
+    for group in groups.values():
+        if "x" in group and "y" in group:
+            found.append(",".join(group[axis] for axis in "xyz" if axis in group))
+    return sorted(set(found), key=lambda text: (-text.count(","), text))
+
+
 def vector_field(fields, name: str, *, where: str = "", role: str = "velocity field",
-                 fix: str = "", plane_axes=(0, 1)) -> tuple[np.ndarray, str]:
+                 fix: str = "", plane_axes=(0, 1), dimension: int | None = None) -> tuple[np.ndarray, str]:
     """A step's vector field by name, with three components, and where it lives (cell data first).
 
+    ``name`` is a vector field, or 2 or 3 scalar fields joined by commas (``'u.x,u.y'``, as
+    :func:`velocity_name` gives them), the components along x, y(, z), all on cells or all on points
+    (cells where each has a copy on both). A name the step holds whole is read whole.
+
     ``plane_axes``: the axes two-component vectors lie along (a 2D mesh's plane: a solver writing a
-    case in the x-z plane writes (u_x, u_z)); default x and y.
+    case in the x-z plane writes (u_x, u_z)); default x and y. ``dimension``: the mesh's, to refuse two
+    components on a 3D mesh (not checked when None).
 
     Returns
     -------
@@ -89,20 +150,61 @@ def vector_field(fields, name: str, *, where: str = "", role: str = "velocity fi
     Raises
     ------
     FieldNotFoundError
-        No field of that name.
+        No field of that name (its fix names the components' form, and groups of fields that look
+        like components); a component not found.
     FieldShapeError
-        The field does not have 2 or 3 components.
+        The field does not have 2 or 3 components; a component that is not a scalar, components on
+        cells and on points, two components on a 3D mesh.
     """
-    values, location = named_field(fields, name, where=where, role=role, fix=fix, order=("cell", "point"))
-    values = np.asarray(values, dtype=np.float64)
-    if values.ndim != 2 or values.shape[1] not in (2, 3):
-        raise FieldShapeError(f"{role} '{name}' must have 2 or 3 components, found shape {values.shape}",
-                              where=where, fix="name a vector field")
+    held = set(fields.point_data) | set(fields.cell_data)
+    if "," in name and name not in held:
+        values, location = _components(fields, name, where=where, role=role, dimension=dimension)
+    else:
+        if name not in held and not (getattr(fields, "fields_left_out", None) or {}).get(name):
+            groups = _component_groups(sorted(held))
+            fix = (fix or "name the vector field") + ("; a vector written as scalar fields is named by its "
+                                                      "components in x, y(, z) order, joined by commas")
+            fix += f" (here perhaps {groups[0]})" if groups else " (u.x,u.y)"
+        values, location = named_field(fields, name, where=where, role=role, fix=fix, order=("cell", "point"))
+        values = np.asarray(values, dtype=np.float64)
+        if values.ndim != 2 or values.shape[1] not in (2, 3):
+            raise FieldShapeError(f"{role} '{name}' must have 2 or 3 components, found shape {values.shape}",
+                                  where=where, fix="name a vector field, or its scalar components joined by commas "
+                                                   "in x, y(, z) order")
     if values.shape[1] == 2:
         placed = np.zeros((values.shape[0], 3))
         placed[:, list(plane_axes)] = values
         values = placed
     return values, location
+
+
+def _components(fields, name: str, *, where: str, role: str, dimension) -> tuple[np.ndarray, str]:
+    """The vectors of scalar fields ``'u.x,u.y(,u.z)'``: shape (n, 2) or (n, 3), and where they live."""
+    parts = velocity_name(name).split(",")
+    held = {"cell": set(fields.cell_data), "point": set(fields.point_data)}
+    shared = [location for location in ("cell", "point") if all(part in held[location] for part in parts)]
+    if not shared:
+        for part in parts:  # a component not found: its message lists the fields there
+            named_field(fields, part, where=where, role=f"{role} '{name}': component",
+                        fix="name the velocity's scalar components in x, y(, z) order, joined by commas")
+        places = ", ".join(f"{part} on {'cells' if part in held['cell'] else 'points'}" for part in parts)
+        raise FieldShapeError(f"{role} '{name}': its components do not share a location ({places})",
+                              where=where, fix="name components written all on cells or all on points")
+    if dimension == 3 and len(parts) == 2:
+        raise FieldShapeError(f"{role} '{name}' has 2 components on a 3D mesh", where=where,
+                              fix=f"name the three components in x, y, z order ({name},...)")
+    columns = []
+    for part in parts:  # the cell copy where both are held; a point copy read for a lost cell copy warns
+        order = (shared[0],) if part in held["cell"] else ("cell", "point")
+        values = np.asarray(named_field(fields, part, where=where, role=role, order=order)[0], dtype=np.float64)
+        if values.ndim == 2 and values.shape[1] == 1:
+            values = values[:, 0]
+        if values.ndim != 1:
+            raise FieldShapeError(f"{role} '{name}': component '{part}' must be a scalar field, found shape "
+                                  f"{values.shape}", where=where,
+                                  fix=f"name scalar components, or the vector alone ({part})")
+        columns.append(values)
+    return np.column_stack(columns), shared[0]
 
 
 def _is_indicator(values) -> bool:

@@ -55,8 +55,9 @@ class RunSpec:
     value_range = MeasureOptions.value_range  # the old name of range (warns), as on the options
 
     def __post_init__(self):  # refused before any run is measured, as the options would refuse it
-        MeasureOptions(field=self.field, range=self.range, phase=self.phase, level_set=self.level_set,
-                       interface_kind=self.interface_kind, steps=self.steps)
+        checked = MeasureOptions(field=self.field, range=self.range, phase=self.phase, level_set=self.level_set,
+                                 interface_kind=self.interface_kind, steps=self.steps, velocity=self.velocity)
+        object.__setattr__(self, "velocity", checked.velocity)  # a vector, or its components as 'u.x,u.y'
 
 
 @dataclass

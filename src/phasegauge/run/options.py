@@ -18,6 +18,7 @@ from types import MappingProxyType
 
 from ..errors import FieldNotFoundError, FieldShapeError, OldNameWarning, OptionError
 from ..model.axes import AXIS_INDEX
+from ..model.fields import velocity_name
 from ..model.indicator import normalize_field_location, normalize_phase, parse_range
 
 __all__ = ["MeasureOptions", "ANALYSES", "STEP_COLUMNS", "MORE_STEP_COLUMNS", "OLD_OPTION_NAMES", "check_workers",
@@ -125,9 +126,10 @@ class MeasureOptions:
         Which side of the range is the measured phase.
     level : float
         Indicator level of the interface and of droplet labelling, in (0, 1).
-    velocity : str or None
-        Velocity field (for droplet velocities, prediction in tracking and
-        flow-weighted cross sections).
+    velocity : str, sequence of str, or None
+        Velocity field (for droplet velocities, prediction in tracking, flow-weighted cross
+        sections and the boundary flux): a vector field, or its 2 or 3 scalar components in
+        x, y(, z) order, as ``('u.x', 'u.y')`` or ``'u.x,u.y'`` (kept as the comma text).
     analyses : tuple of str
         Subset of :data:`ANALYSES`.
     adjacency : {'face', 'point'}
@@ -292,6 +294,7 @@ class MeasureOptions:
         set_(self, "time_to", time_to)
         set_(self, "every", every)
         set_(self, "phase", normalize_phase(self.phase))
+        set_(self, "velocity", velocity_name(self.velocity))
         level = float(self.level)
         if not 0.0 < level < 1.0:
             raise OptionError(f"level must lie strictly between 0 and 1, found {level}",

@@ -139,9 +139,11 @@ def step_velocity(step, options):
         return None, None, None
     mesh = step.mesh
     # two components lie in a 2D mesh's plane (u_x, u_z for a case in the x-z plane)
+    # or its scalar components, 'u.x,u.y', all on cells or all on points
     values, location = vector_field(step.fields, options.velocity, where=step.info.where,
                                     fix="name the velocity field with --velocity, or leave it out",
-                                    plane_axes=tuple(mesh.plane_axes) if mesh.dimension == 2 else (0, 1))
+                                    plane_axes=tuple(mesh.plane_axes) if mesh.dimension == 2 else (0, 1),
+                                    dimension=int(mesh.dimension))
     bad = int(np.count_nonzero(~np.isfinite(values).all(axis=1)))
     if bad:
         warnings.warn(NonFiniteWarning(f"velocity field '{options.velocity}' is not finite at {bad} {location}s: "
