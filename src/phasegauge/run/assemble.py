@@ -444,13 +444,14 @@ def findings(steps, droplets, audit: dict, options, skipped: list, *, dimension:
         worst = _worst(steps, "overshoot_volume")
         tolerance = ROUNDOFF_VOLUME * domain
         plateaus = _bulk_plateaus(steps, droplets, options, dimension, kind) if worst > tolerance else None
-        if plateaus is not None:
+        if isinstance(plateaus, Finding):
             found.append(plateaus)
         elif worst > tolerance:
             c_min, c_max = float(np.nanmin(steps["c_min"])), float(np.nanmax(steps["c_max"]))
             found.append(Finding("indicator_overshoot", "warning",
                                  f"indicator leaves [0, 1]: overshoot volume up to {worst:.3g} "
-                                 f"({worst / domain:.2g} of the domain; c from {c_min:.4g} to {c_max:.4g})",
+                                 f"({worst / domain:.2g} of the domain; c from {c_min:.4g} to {c_max:.4g})"
+                                 + (f"; {plateaus}" if plateaus else ""),
                                  {"overshoot_volume": worst, "c_min": c_min, "c_max": c_max,
                                   "tolerance": tolerance}))
     found += [f for f in (resolution_finding(steps, audit, kind), boundary_reach_finding(steps, kind)) if f is not None]
@@ -506,12 +507,13 @@ MAX_SHIFT = 0.03
 
 
 def _bulk_plateaus(steps, droplets=None, options=None, dimension=None, kind="unknown"):
-    """A note on bulk plateaus off 0 and 1 that account for c leaving [0, 1], or None.
+    """A note on bulk plateaus off 0 and 1 that account for c leaving [0, 1]; else why bulks off their wells
+    are not the Gibbs-Thomson shift (str, for the overshoot warning), or None.
 
     A diffuse-interface (Cahn-Hilliard) bulk sits off the wells by the Gibbs-Thomson shift of
     its curved interfaces; c beyond [0, 1] is then physics as long as it stays within the
     plateaus' range widened by the shift itself (twice the shift from the well, at least 1e-3).
-    Values further out are overshoot (None: the caller warns). So is a bulk off its well where the
+    Values further out are overshoot (None or a str: the caller warns). So is a bulk off its well where the
     shift cannot be Gibbs-Thomson's: a sharp interface (volume-of-fluid fractions have none); one bulk
     on its well (or without a plateau, read as its well) while the other moved; the two bulks moved
     opposite ways or by amounts more than :data:`SHIFT_FACTOR` apart (the shift moves both alike);
@@ -528,24 +530,29 @@ def _bulk_plateaus(steps, droplets=None, options=None, dimension=None, kind="unk
     floor, ceiling = min(0.0, low - max(-low, 1e-3)), max(1.0, high + max(high - 1.0, 1e-3))
     if c_min < floor or c_max > ceiling:
         return None
-    shifts = (low, high - 1.0)
-    if not shifts[0] * shifts[1] > 0:
-        return None  # a bulk on its well, or the two spread apart: not one shift of both bulks
-    if max(abs(s) for s in shifts) > SHIFT_FACTOR * min(abs(s) for s in shifts):
-        return None  # one bulk moved far more than the other: not one shift of both bulks
+    shifts, expected = (low, high - 1.0), _expected_shift(droplets, options, dimension)
+    largest, smallest = max(abs(s) for s in shifts), min(abs(s) for s in shifts)
+    bulk = f"the bulk sits at c = {low:.4g} and {high:.4g}: not a Gibbs-Thomson shift, "
+    if largest == 0.0:
+        return None
+    if shifts[0] * shifts[1] == 0:
+        return bulk + "which moves both bulks, and one sits on its well (or shows no plateau)"
+    if shifts[0] * shifts[1] < 0:
+        return bulk + "which moves both bulks one way, and they spread apart"
+    if largest > SHIFT_FACTOR * smallest:
+        return bulk + f"which moves both bulks alike, and one moved over {SHIFT_FACTOR:g} times the other"
+    if expected is None and largest > MAX_SHIFT:
+        return bulk + f"a shift beyond {MAX_SHIFT:g} of the gap (a loss of phase or a wrong --range reads so)"
+    if expected is not None and not all(s * expected > 0 and abs(s) <= SHIFT_FACTOR * abs(expected) for s in shifts):
+        return bulk + f"the free energy's is {expected:+.2g} for the largest drop at the last step"
     figures = {"bulk_c_low": low, "bulk_c_high": high, "c_min": c_min, "c_max": c_max,
                "shift_low": low, "shift_high": high - 1.0}
-    expected = _expected_shift(droplets, options, dimension)
     if expected is None:
-        if max(abs(s) for s in shifts) > MAX_SHIFT:
-            return None  # more than a curvature shifts a bulk: overshoot
         figures["shift_tolerance"] = MAX_SHIFT
         words = f" (both within {MAX_SHIFT:g} of the gap)"
-    elif all(s * expected > 0 and abs(s) <= SHIFT_FACTOR * abs(expected) for s in shifts):
+    else:
         figures["expected_shift"] = expected
         words = f" (the free energy's Gibbs-Thomson shift for the largest drop at the last step: {expected:+.2g})"
-    else:
-        return None  # not the model's shift: overshoot
     return Finding("bulk_plateaus", "note",
                    f"the bulk of the phases sits off 0 and 1 (c = {low:.4g} and {high:.4g}, shift {low:+.2g} and "
                    f"{high - 1:+.2g}){words}: a diffuse-interface model's bulk, moved by the Gibbs-Thomson shift of "
