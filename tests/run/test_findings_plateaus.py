@@ -104,7 +104,7 @@ def _shifted(low, high):
 @pytest.mark.parametrize("kind, found", [("sharp", "indicator_overshoot"), ("diffuse", "bulk_plateaus"),
                                          ("unknown", "bulk_plateaus")])
 def test_a_sharp_interface_has_no_gibbs_thomson_shift(kind, found):
-    """Audit 13: a volume-of-fluid run whose carrier sits at c = -2e-3 was told its bulk was 'physics, not
+    """Regression: a volume-of-fluid run whose carrier sits at c = -2e-3 was told its bulk was 'physics, not
     overshoot'. Volume fractions have no Gibbs-Thomson shift (it comes from the gradient energy of a
     diffuse interface, Cahn & Hilliard 1958), so a run declared or read sharp gets the overshoot warning."""
     from phasegauge.run.assemble import findings
