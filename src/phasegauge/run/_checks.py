@@ -48,7 +48,8 @@ def standing_checks(steps, audit: dict, options, found=None) -> list:
     Made only where the run judged what the check reads: the diffusion audit fitted a width history
     (``interface_widening``), the phase volume over two steps or more, not 0 at every step, and no finding
     (``found``: the run's findings) that says its drift was not judged (``phase_volume_drift``), the
-    overshoot volume of an indicator that can leave [0, 1] (``indicator_bounds``: not a level set's), the
+    overshoot volume of an indicator that can leave [0, 1] (``indicator_bounds``: not a level set's; passed
+    as "bulk off 0 and 1 (note)" where the bulk-plateau note stands in for the overshoot warning), the
     share of the interface under 4 cells across on a diffuse interface, finite at some step
     (``interface_resolution``), and one droplet or more
     (``droplet_resolution``).
@@ -77,7 +78,8 @@ def standing_checks(steps, audit: dict, options, found=None) -> list:
     why = ("a level set's indicator is its Heaviside, bounded by construction" if level_set
            else "" if steps is not None and "overshoot_volume" in steps else NOT_IN_ANALYSES
            if "conservation" not in analyses else "no overshoot volume measured")
-    checks.append(_check("indicator_bounds", "indicator bounded", why))
+    noted = any(getattr(f, "kind", None) == "bulk_plateaus" for f in (found or ()))
+    checks.append(_check("indicator_bounds", "bulk off 0 and 1 (note)" if noted else "indicator bounded", why))
     why = ("" if "interface" in analyses and kind not in ("sharp", "level set") and not level_set
            and _finite_somewhere(steps, "under_resolved_interface_fraction")
            else NOT_IN_ANALYSES if "interface" not in analyses

@@ -444,13 +444,14 @@ def findings(steps, droplets, audit: dict, options, skipped: list, *, dimension:
         worst = _worst(steps, "overshoot_volume")
         tolerance = ROUNDOFF_VOLUME * domain
         plateaus = _bulk_plateaus(steps, droplets, options, dimension, kind) if worst > tolerance else None
-        if plateaus is not None:
+        if isinstance(plateaus, Finding):
             found.append(plateaus)
         elif worst > tolerance:
             c_min, c_max = float(np.nanmin(steps["c_min"])), float(np.nanmax(steps["c_max"]))
             found.append(Finding("indicator_overshoot", "warning",
                                  f"indicator leaves [0, 1]: overshoot volume up to {worst:.3g} "
-                                 f"({worst / domain:.2g} of the domain; c from {c_min:.4g} to {c_max:.4g})",
+                                 f"({worst / domain:.2g} of the domain; c from {c_min:.4g} to {c_max:.4g})"
+                                 + (f"; {plateaus}" if plateaus else ""),
                                  {"overshoot_volume": worst, "c_min": c_min, "c_max": c_max,
                                   "tolerance": tolerance}))
     found += [f for f in (resolution_finding(steps, audit, kind), boundary_reach_finding(steps, kind)) if f is not None]
@@ -495,20 +496,29 @@ def findings(steps, droplets, audit: dict, options, skipped: list, *, dimension:
 
 
 #: a bulk shift is taken for the free energy's Gibbs-Thomson shift up to this many times it (the largest
-#: drop's shift is the smallest; smaller drops shift the bulk more): our threshold
+#: drop's shift is the smallest; smaller drops shift the bulk more), and the two bulks' shifts for one
+#: shift while within this ratio of each other: our threshold
 SHIFT_FACTOR = 3.0
+
+#: without a free energy, a shift of both bulks up to this share of the gap can be Gibbs-Thomson's (the
+#: linearised shift (d - 1) w / (12 R) of c = (1 + tanh(x / w)) / 2 is 0.03 for a drop of radius 2.8 w in 2D,
+#: 5.6 w in 3D); beyond it, a uniform loss of phase or a wrong --range reads the same: our threshold
+MAX_SHIFT = 0.03
 
 
 def _bulk_plateaus(steps, droplets=None, options=None, dimension=None, kind="unknown"):
-    """A note on bulk plateaus off 0 and 1 that account for c leaving [0, 1], or None.
+    """A note on bulk plateaus off 0 and 1 that account for c leaving [0, 1]; else why bulks off their wells
+    are not the Gibbs-Thomson shift (str, for the overshoot warning), or None.
 
     A diffuse-interface (Cahn-Hilliard) bulk sits off the wells by the Gibbs-Thomson shift of
     its curved interfaces; c beyond [0, 1] is then physics as long as it stays within the
     plateaus' range widened by the shift itself (twice the shift from the well, at least 1e-3).
-    Values further out are overshoot (None: the caller warns). So is a bulk off its well where the
-    shift cannot be Gibbs-Thomson's: a sharp interface (volume-of-fluid fractions have none), the two
-    bulks moved opposite ways (the shift moves both alike), or, with a double-well free energy, a shift
-    of the other sign than the model's or more than :data:`SHIFT_FACTOR` times it.
+    Values further out are overshoot (None or a str: the caller warns). So is a bulk off its well where the
+    shift cannot be Gibbs-Thomson's: a sharp interface (volume-of-fluid fractions have none); one bulk
+    on its well (or without a plateau, read as its well) while the other moved; the two bulks moved
+    opposite ways or by amounts more than :data:`SHIFT_FACTOR` apart (the shift moves both alike);
+    with a double-well free energy, a shift of the other sign than the model's or more than
+    :data:`SHIFT_FACTOR` times it; without one, a shift beyond :data:`MAX_SHIFT` of the gap.
     """
     if kind == "sharp" or "bulk_c_low" not in steps or "c_min" not in steps or not len(steps):
         return None
@@ -516,22 +526,31 @@ def _bulk_plateaus(steps, droplets=None, options=None, dimension=None, kind="unk
     if not (np.isfinite(lows).any() and np.isfinite(highs).any()):
         return None
     low, high = float(np.nanmin(lows)), float(np.nanmax(highs))
-    if low == 0.0 and high == 1.0:
-        return None
     c_min, c_max = float(np.nanmin(steps["c_min"])), float(np.nanmax(steps["c_max"]))
     floor, ceiling = min(0.0, low - max(-low, 1e-3)), max(1.0, high + max(high - 1.0, 1e-3))
     if c_min < floor or c_max > ceiling:
         return None
-    shifts = [s for s in (low, high - 1.0) if s != 0.0]
-    if len(shifts) == 2 and shifts[0] * shifts[1] < 0:
-        return None  # spread outwards on both sides: not one shift of both bulks
+    shifts, expected = (low, high - 1.0), _expected_shift(droplets, options, dimension)
+    largest, smallest = max(abs(s) for s in shifts), min(abs(s) for s in shifts)
+    bulk = f"the bulk sits at c = {low:.4g} and {high:.4g}: not a Gibbs-Thomson shift, "
+    if largest == 0.0:
+        return None
+    if shifts[0] * shifts[1] == 0:
+        return bulk + "which moves both bulks, and one sits on its well (or shows no plateau)"
+    if shifts[0] * shifts[1] < 0:
+        return bulk + "which moves both bulks one way, and they spread apart"
+    if largest > SHIFT_FACTOR * smallest:
+        return bulk + f"which moves both bulks alike, and one moved over {SHIFT_FACTOR:g} times the other"
+    if expected is None and largest > MAX_SHIFT:
+        return bulk + f"a shift beyond {MAX_SHIFT:g} of the gap (a loss of phase or a wrong --range reads so)"
+    if expected is not None and not all(s * expected > 0 and abs(s) <= SHIFT_FACTOR * abs(expected) for s in shifts):
+        return bulk + f"the free energy's is {expected:+.2g} for the largest drop at the last step"
     figures = {"bulk_c_low": low, "bulk_c_high": high, "c_min": c_min, "c_max": c_max,
                "shift_low": low, "shift_high": high - 1.0}
-    expected = _expected_shift(droplets, options, dimension)
-    words = ""
-    if expected is not None and not all(s * expected > 0 and abs(s) <= SHIFT_FACTOR * abs(expected) for s in shifts):
-        return None  # not the model's shift: overshoot
-    if expected is not None:
+    if expected is None:
+        figures["shift_tolerance"] = MAX_SHIFT
+        words = f" (both within {MAX_SHIFT:g} of the gap)"
+    else:
         figures["expected_shift"] = expected
         words = f" (the free energy's Gibbs-Thomson shift for the largest drop at the last step: {expected:+.2g})"
     return Finding("bulk_plateaus", "note",
