@@ -202,7 +202,7 @@ def test_a_plug_inlet_beside_no_slip_walls_with_point_velocities_is_not_read_as_
     assert np.all(rate - unknown <= -inflow + 1e-9) and np.all(rate + unknown >= -inflow - 1e-9)
     kinds = {f.kind: f for f in result.findings}
     assert "phase_volume_drift" not in kinds, [f.text for f in result.findings]
-    assert "share a corner with a wall" in kinds["phase_volume_not_judged"].text
+    assert "sharing a corner with a wall" in kinds["phase_volume_not_judged"].text
 
 
 @pytest.mark.parametrize("n", [10, 20])

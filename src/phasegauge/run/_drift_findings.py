@@ -212,11 +212,12 @@ def _allowance_reason(parts: dict, on_points: bool) -> str:
     would settle it."""
     largest = max(parts, key=parts.get)
     if largest == "unknown":
-        return ("what the written fields do not give exactly on the open boundary faces may be off "
-                "(boundary_phase_outflow_unknown: faces whose c or velocity is not finite; c on cells, taken at the "
-                "face, off by up to its gradient times the distance to the face"
-                + ("; faces that share a corner with a wall, the velocity on points 0 there" if on_points else "")
-                + "): a finer mesh, or c and the velocity written finite on the boundary, would tell")
+        return ("the part of the boundary flux the written fields give only approximately (boundary_phase_outflow_"
+                "unknown: open faces whose c or velocity is not finite; with c on cells, the cell's value taken at "
+                "the face" + ("; open faces sharing a corner with a wall, where the velocity on points is the wall's "
+                              "0" if on_points else "")
+                + "): finite values on the boundary, a finer mesh" + (" or the velocity written on cells" if on_points
+                                                                      else "") + " would tell")
     if largest == "smooth":
         return ("the trapezoidal rule's own error in integrating the boundary flow between outputs, estimated from "
                 "the rate's second differences (the outputs resolve it; the error falls with the square of the "
