@@ -5,28 +5,67 @@ from __future__ import annotations
 
 import numpy as np
 
-__all__ = ["drift_findings", "outflow_allowance"]
+__all__ = ["drift_findings", "outflow_allowance", "outflow_allowance_parts"]
+
+
+#: an interval's change of the outflow rate more than this many times a neighbouring interval's (per unit
+#: time) is a jump, not a smooth variation (our threshold)
+JUMP_RATIO = 3.0
 
 
 def outflow_allowance(steps) -> np.ndarray:
     """Per step, how far the trapezoidal outflow (``phase_volume_outflow``) may be from the true time
-    integral of ``boundary_phase_outflow``: half the change of the rate times the interval, summed
-    over the intervals so far (exact bounds where the rate is monotone between outputs: the integral
-    then lies between the left and the right rectangles, the trapezoid midway), the rates as
-    :func:`known_rates` gives them; plus the trapezoid of ``boundary_phase_outflow_unknown`` (open faces
-    where c is not finite, taken at 0.5: half their flow may be off)."""
+    integral of ``boundary_phase_outflow``, summed over the intervals so far: the sum of the parts
+    :func:`outflow_allowance_parts` gives."""
+    return sum(outflow_allowance_parts(steps).values(), np.zeros(len(steps)))
+
+
+def outflow_allowance_parts(steps) -> dict:
+    """The parts of :func:`outflow_allowance`, each per step and summed over the intervals so far.
+
+    - ``jumps``: intervals where the rate jumps (its change per unit time more than ``JUMP_RATIO`` times
+      a neighbouring interval's, or of the other sign than both: a rate that alternates is not resolved)
+      or that have no neighbour: half the change of the rate times the interval (an exact bound where the
+      rate is monotone between outputs: the integral then lies between the left and the right
+      rectangles, the trapezoid midway);
+    - ``smooth``: the other intervals, where the outputs resolve the rate: the trapezoidal rule's error
+      term, dt^3 / 12 |r''| (r'' the larger of the second differences of the rate at the interval's two
+      ends, divided differences on uneven intervals), never above the bound of ``jumps``;
+    - ``unknown``: the trapezoid of ``boundary_phase_outflow_unknown`` (what the written fields do not
+      give exactly on the open faces: c or the velocity not finite, c on cells taken at the face, the
+      velocity on points 0 at a wall's corner: :func:`phasegauge.analysis.open_boundary_flux`).
+
+    The rates are those :func:`known_rates` gives.
+    """
     from ..analysis.conservation import known_rates
 
-    if "boundary_phase_outflow" not in steps or "time" not in steps or not len(steps):
-        return np.zeros(len(steps))
+    zero = np.zeros(len(steps))
+    parts = {"jumps": zero, "smooth": zero, "unknown": zero}
+    if "boundary_phase_outflow" not in steps or "time" not in steps or len(steps) < 2:
+        return parts
     rate = known_rates(steps)
-    t = steps["time"].to_numpy(dtype=float)
-    dt = np.abs(np.diff(t))
-    allowance = 0.5 * np.abs(np.diff(rate)) * dt
+    dt = np.abs(np.diff(steps["time"].to_numpy(dtype=float)))
+    change = np.diff(rate)
+    with np.errstate(invalid="ignore", divide="ignore"):
+        slope = np.where(dt > 0, change / np.where(dt > 0, dt, 1.0), 0.0)
+        curvature = np.zeros(rate.size)  # |r''| at the steps between two intervals
+        span = dt[:-1] + dt[1:]
+        curvature[1:-1] = np.where(span > 0, 2.0 * np.abs(np.diff(slope)) / np.where(span > 0, span, 1.0), 0.0)
+    first_order = 0.5 * np.abs(change) * dt
+    error_term = np.minimum(dt ** 3 / 12.0 * np.maximum(curvature[:-1], curvature[1:]), first_order)
+    size = np.abs(slope)
+    before = np.concatenate([[np.nan], slope[:-1]])
+    after = np.concatenate([slope[1:], [np.nan]])
+    jump = np.isnan(before) & np.isnan(after)  # a single interval: nothing to tell its shape
+    for side in (before, after):
+        jump |= np.isfinite(side) & (size > JUMP_RATIO * np.abs(np.nan_to_num(side)))
+    jump |= (slope * np.nan_to_num(before) < 0) & (slope * np.nan_to_num(after) < 0)
+    parts["jumps"] = np.concatenate([[0.0], np.cumsum(np.where(jump, first_order, 0.0))])
+    parts["smooth"] = np.concatenate([[0.0], np.cumsum(np.where(jump, 0.0, error_term))])
     if "boundary_phase_outflow_unknown" in steps:
         unknown = np.nan_to_num(steps["boundary_phase_outflow_unknown"].to_numpy(dtype=float))
-        allowance = allowance + 0.5 * (unknown[1:] + unknown[:-1]) * dt
-    return np.concatenate([[0.0], np.cumsum(allowance)])
+        parts["unknown"] = np.concatenate([[0.0], np.cumsum(0.5 * (unknown[1:] + unknown[:-1]) * dt)])
+    return parts
 
 
 def _left_out_share(steps, first: float) -> tuple[np.ndarray, np.ndarray]:
@@ -118,7 +157,8 @@ def _open_findings(steps, change, reference, tolerance, against, Finding, on_poi
     """An open domain's findings: the drift left after adding back what crossed the boundaries."""
     outflow = np.nan_to_num(steps["phase_volume_outflow"].to_numpy(dtype=float))
     left = change + outflow / reference
-    slack = outflow_allowance(steps) / reference
+    parts = {name: part / reference for name, part in outflow_allowance_parts(steps).items()}
+    slack = parts["jumps"] + parts["smooth"] + parts["unknown"]
     # what the cells left out for non-finite values could hold is not judged, as in a closed domain
     below, above = _left_out_share(steps, reference)
     beyond = np.maximum(np.maximum(left - above, -left - below), 0.0) - slack
@@ -133,16 +173,17 @@ def _open_findings(steps, change, reference, tolerance, against, Finding, on_poi
         text = (f"phase volume is not accounted for by the flow through the open boundaries: after adding back "
                 f"what crossed them, {100 * signed:+.3g} % is {'gained' if signed > 0 else 'lost'} "
                 f"(t = {float(steps['time'].iat[i]):g}; tolerance {100 * tolerance:.3g} % of {against}, and "
-                f"{100 * float(slack[i]):.3g} % for the outflow integrated between outputs); the flow is taken "
+                f"{100 * float(slack[i]):.3g} % for what the boundary flow may miss); the flow is taken "
                 "from the written velocity and field on the boundary faces at the outputs, not from the solver's "
                 "own fluxes: phase that crosses the boundary wholly between two outputs (a drop leaving within "
                 "one interval) is not seen and reads as lost or gained")
         if on_points:
             text += ("; the velocity is on points (no cell copy) at some steps or all: where its point values "
                      "were averaged from the cells, a wall beside the phase (near a corner or a stagnation point) "
-                     "can read open and carry a false flux, and the flux of a profile that falls to zero at a "
-                     "no-slip wall is off by O(h^2) (about 1 % of the inflow at 10 cells across): write the "
-                     "velocity on cells to tell")
+                     "can read open and carry a false flux, and an open face that shares a corner with a wall "
+                     "takes the wall's u = 0 there, so its flux is off by O(h), up to one half face per wall "
+                     "corner (10 % of a plug inlet's inflow at 10 cells across; counted in the allowance): write "
+                     "the velocity on cells to tell")
         return [Finding("phase_volume_drift", "warning", text, figures),
                 Finding("open_boundary", "note", _OPEN)]
     text = _OPEN
@@ -154,20 +195,36 @@ def _open_findings(steps, change, reference, tolerance, against, Finding, on_poi
                         f"phase volume is left, no more than the cells left out (non-finite values) could account for "
                         f"(up to {100 * bound:.3g} % of {against}): not judged as drift",
                         {**figures, "largest_left_out": bound}), Finding("open_boundary", "note", _OPEN)]
-    if worst_left > tolerance:  # within the integration's allowance only: the outputs are too far apart
-        unknown = "boundary_phase_outflow_unknown" in steps and bool(
-            np.nan_to_num(steps["boundary_phase_outflow_unknown"].to_numpy(dtype=float)).any())
+    if worst_left > tolerance:  # within the allowance only: what the outputs cannot settle
         text = (f"phase volume through the open boundaries not judged: after adding back what crossed them up to "
                 f"{100 * worst_left:.3g} % is left (tolerance {100 * tolerance:.3g} % of {against}), no more than "
-                + ("the flow through boundary faces where c or the velocity is not finite and " if unknown else "")
-                + "integrating the boundary flow between outputs may miss (the rate changes too much from one "
-                "output to the next); outputs closer in time would tell")
+                + _allowance_reason({name: float(part[j]) for name, part in parts.items()}, on_points))
         return [Finding("phase_volume_not_judged", "note", text, figures), Finding("open_boundary", "note", _OPEN)]
     if worst_change > tolerance:
         text = (f"phase volume changes by up to {100 * worst_change:.3g} % through the open boundaries: the flow "
                 f"through them accounts for it (after adding it back, up to {100 * figures['largest_drift_closed']:.3g}"
                 f" % is left; tolerance {100 * tolerance:.3g} % of {against})")
     return [Finding("open_boundary", "note", text, figures)]
+
+
+def _allowance_reason(parts: dict, on_points: bool) -> str:
+    """What the largest part of the outflow's allowance (:func:`outflow_allowance_parts`) is, and what
+    would settle it."""
+    largest = max(parts, key=parts.get)
+    if largest == "unknown":
+        return ("the part of the boundary flux the written fields give only approximately (boundary_phase_outflow_"
+                "unknown: open faces whose c or velocity is not finite; with c on cells, the cell's value taken at "
+                "the face" + ("; open faces sharing a corner with a wall, where the velocity on points is the wall's "
+                              "0" if on_points else "")
+                + "): finite values on the boundary, a finer mesh" + (" or the velocity written on cells" if on_points
+                                                                      else "") + " would tell")
+    if largest == "smooth":
+        return ("the trapezoidal rule's own error in integrating the boundary flow between outputs, estimated from "
+                "the rate's second differences (the outputs resolve it; the error falls with the square of the "
+                "output interval): outputs twice as close in time would tell")
+    return ("integrating the boundary flow between outputs may miss where the rate jumps from one output to the "
+            "next (a change more than 3 times the next interval's, or an alternating one): outputs closer in time "
+            "would tell")
 
 
 _OPEN = ("the domain has inflow or outflow boundaries: phase-volume drift includes what crossed them "
