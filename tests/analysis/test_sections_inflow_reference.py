@@ -12,7 +12,7 @@ import numpy as np
 import pytest
 from scipy import integrate, optimize, special
 
-from phasegauge.analysis.mixing import cross_sections_noted, mixing_length, mixing_length_note
+from phasegauge.analysis.mixing import cross_sections_noted, mixing_length, mixing_length_note, mixing_length_status
 from phasegauge.meshgen import grid_mesh
 
 SECTIONS = np.arange(0.125, 10.0, 0.25)  # 40 sections through a channel [0, 10] x [0, 1]
@@ -129,3 +129,26 @@ def test_area_means_that_drift_along_the_channel_are_warned_of():
         warnings.simplefilter("error")
         _, flowing = _measure(mesh, c, 6 * y * (1 - y))  # flow-weighted means are kept: nothing to say
     assert not any("changes along the channel" in n for n in flowing)
+
+
+def test_a_channel_flowing_towards_minus_x_without_a_velocity_has_no_inflow_at_its_outlet():
+    # the channel of _fast(0.25) mirrored, c = 0.5 + 0.5 e^(-k (10 - x)) cos(pi y): the inflow at x = 10, mixing
+    # towards -x. Without a velocity the sections are taken along +x, so the first is the outlet (intensity of
+    # segregation 0.0036, over the uniform threshold; 0.44 at the inlet end): read against it, every section
+    # looked mixed and the length an "upper bound" at x = 0.125; the analytic length from the inlet is
+    # ln(sqrt(r) / 0.1) / k = 6.9 (Danckwerts' index about the cup mean, scipy quad). Now refused as the inflow,
+    # naming --velocity; with the velocity (towards -x) the length is the mirrored analytic one
+    k = 0.25
+    r = (integrate.quad(lambda y: 6 * y * (1 - y) * np.cos(np.pi * y) ** 2, 0, 1)[0]
+         / integrate.quad(lambda y: 6 * y * (1 - y), 0, 1)[0])
+    exact = np.log(np.sqrt(r) / 0.1) / k
+    mesh, x, y = _points(400)
+    c = 0.5 + 0.5 * np.exp(-k * (10 - x)) * np.cos(np.pi * y)
+    table, notes = _measure(mesh, c)
+    assert 1e-3 < table["segregation_intensity"].iloc[0] < 0.01
+    assert np.isnan(mixing_length(table, target=0.9))
+    assert mixing_length_status(table, target=0.9) == "undefined"
+    assert any("less segregated than a section after it" in n and "--velocity" in n for n in notes)
+    backward, notes = _measure(mesh, c, -6 * y * (1 - y))
+    assert mixing_length(backward, target=0.9, ends=(0.0, 10.0)) == pytest.approx(exact, abs=0.03)
+    assert not any("less segregated" in n for n in notes)

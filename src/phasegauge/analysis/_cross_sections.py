@@ -64,9 +64,11 @@ FLOW_MISMATCH = 0.05
 #: no segregated inflow to measure mixing against (dye injected downstream into carrier at c = 0.01, or a
 #: premixed inflow; our threshold)
 UNIFORM_INFLOW = 1e-3
-#: ... and refused as the inflow only where a section downstream is this many times more segregated than
-#: both it and that threshold (a well-mixed channel's noise sits near the threshold on every section, 0.00099
-#: first and 0.00102 later at 1.6 % noise: no sign of a segregation entering downstream; our threshold)
+#: ... and refused as the inflow (uniform or not) where a section downstream is this many times more
+#: segregated than both it and that threshold: mixing along a channel does not undo itself, so an inlet lies
+#: further downstream, or (without a velocity, the sections taken along +axis) the flow runs towards -axis. A
+#: well-mixed channel's noise sits near the threshold on every section (0.00099 first and 0.00102 later at 1.6 %
+#: noise): no sign of a segregation entering downstream (our threshold)
 SEGREGATED_DOWNSTREAM = 4.0
 #: a section whose mean c (weighted as the inflow's) differs from the inflow's mean m by more than this
 #: share of sqrt(m (1 - m)) caps its mixing index against the inflow under 1 - this share: the reference is
@@ -147,16 +149,25 @@ def _inflow_reference(table: pd.DataFrame, flux_means: np.ndarray, first: int, g
     later = later[np.isfinite(later)]
     if problem is None and np.isfinite(inflow) and not ONE_PHASE < inflow < 1 - ONE_PHASE:
         problem = f"{where} is of one phase (mean c {inflow:.3g})"
-    elif (problem is None and np.isfinite(own[first]) and own[first] < UNIFORM_INFLOW and later.size
+    elif (problem is None and np.isfinite(own[first]) and later.size
           and later.max() > SEGREGATED_DOWNSTREAM * max(UNIFORM_INFLOW, own[first])):
-        # uniform, and a section downstream more segregated than it: not the inflow of that segregation (a
-        # uniform first section with every later one as uniform or more mixed before it: kept)
-        problem = (f"{where} is uniform (mean c {inflow:.3g}, intensity of segregation {own[first]:.2g}, "
-                   f"{later.max():.2g} downstream): no segregated inflow to measure mixing against (an inlet further "
-                   "downstream, such as dye injected into the carrier, or a premixed inflow)")
+        # a section downstream more segregated than the first: not the inflow of that segregation, since mixing
+        # along a channel does not undo itself (a first section with every later one as segregated or more
+        # mixed: kept, uniform or not)
+        if own[first] < UNIFORM_INFLOW:
+            problem = (f"{where} is uniform (mean c {inflow:.3g}, intensity of segregation {own[first]:.2g}, "
+                       f"{later.max():.2g} downstream): no segregated inflow to measure mixing against (an inlet "
+                       "further downstream, such as dye injected into the carrier, or a premixed inflow)")
+        else:
+            problem = (f"{where} is less segregated than a section after it (intensity of segregation "
+                       f"{own[first]:.2g} against {later.max():.2g}), and mixing along a channel does not undo itself: "
+                       + ("the flow may run the other way (without --velocity the sections are taken along +"
+                          f"{name}), or an inlet lies further downstream" if not flowing
+                          else "an inlet lies further downstream"))
     if problem:
+        fix = _INFLOW_FIX if flowing else f"give the velocity field (--velocity) for the flow's direction, or {_INFLOW_FIX}"
         notes.append(PhasegaugeWarning(f"{problem}, so the mixing index against the inflow, and the mixing "
-                                       f"length read from it, are undefined: {_INFLOW_FIX}"))
+                                       f"length read from it, are undefined: {fix}"))
         return np.nan, notes  # no index against it, not a huge or a wrong one
     if not flowing:  # flow-weighted means are kept by a steady flow, and change at a dye front: nothing to judge
         notes += _drifting_mean(table, means, first, inflow, name)
