@@ -115,6 +115,19 @@ def test_a_table_without_the_status_reads_a_length_as_reached_and_nan_as_not_rea
     assert not any(label.startswith(("upper bound", "undefined")) for label in lines)
 
 
+
+def test_the_reached_line_breaks_at_a_run_not_reached_and_has_no_entry_when_none_reached():
+    # runs 1 and 3 reached, run 2 (between them in the parameter) undefined: the line is not drawn across it
+    table = pd.DataFrame({"run": ["a", "b", "c"], "parameter": [3.0, 1.0, 2.0], "mixing_length": [2.0, 1.0, np.nan],
+                          "mixing_length_status": ["reached", "reached", "undefined"]})
+    ax = next(a for a in plot_campaign(table, sections=True).axes if a.get_title() == "mixing length")
+    lines = {line.get_label(): line for line in ax.lines}
+    xs = np.asarray(lines["reached"].get_xdata(), dtype=float)
+    assert xs[0] == 1.0 and np.isnan(xs[1]) and xs[2] == 3.0 and xs.size == 3
+    table["mixing_length_status"] = ["upper_bound", "upper_bound", "undefined"]
+    ax = next(a for a in plot_campaign(table, sections=True).axes if a.get_title() == "mixing length")
+    assert "reached" not in [t.get_text() for t in ax.get_legend().get_texts()]
+
 def test_a_resumed_campaign_reads_the_status_back_from_each_runs_steps_csv():
     # campaign_summary takes the word as steps.csv holds it; an empty cell (read back as NaN) is no status
     import io

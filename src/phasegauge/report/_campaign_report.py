@@ -34,7 +34,7 @@ def plot_campaign(table, *, parameter: str = "parameter", unit: str = "", sectio
     are all ``index``: they store no times). ``D_num`` carries its standard error as an
     error bar, hollow where the run's audit finds it not distinguishable from 0 (``D_num_significant``
     False). The mixing-length panel draws each run by its ``mixing_length_status``: a line through the
-    lengths reached; a length met at the first section (``upper_bound``) as a bound, a downward triangle
+    lengths reached (broken at a run between them that did not reach the target); a length met at the first section (``upper_bound``) as a bound, a downward triangle
     at that section's distance, not joined to the line; and with ``sections`` (the runs measured
     cross-sections) a run that did not reach the target within the domain (``not_reached``) as a hollow
     upward triangle at the top of the panel, a length beyond it. A run whose mixing length is undefined
@@ -140,7 +140,20 @@ def _plot_mixing_length(ax, table, x, y, sections: bool) -> None:
     bound = (status == "upper_bound") & np.isfinite(y)
     missing = (status == "not_reached") if sections else np.zeros(len(y), dtype=bool)
     undefined = status == "undefined"
-    line, = ax.plot(x[reached], y[reached], marker="o", label="reached")
+    # the lengths reached, joined only between runs next to each other in the parameter: a run between them
+    # whose length is not reached breaks the line (a NaN); no legend entry where no run reached the target
+    line_x, line_y = [], []
+    for i in np.argsort(x, kind="stable"):
+        if reached[i]:
+            line_x.append(x[i])
+            line_y.append(y[i])
+        elif line_x and np.isfinite(line_x[-1]):
+            line_x.append(np.nan)
+            line_y.append(np.nan)
+    while line_x and not np.isfinite(line_x[-1]):
+        line_x.pop()
+        line_y.pop()
+    line, = ax.plot(line_x, line_y, marker="o", label="reached" if reached.any() else "_nolegend_")
     color = line.get_color()
     if bound.any():
         ax.plot(x[bound], y[bound], linestyle="none", marker="v", markersize=9, color=color,
