@@ -4,7 +4,8 @@ A breakup whose fragments all merge back into one drop within K steps (a thread 
 reconnects), and a coalescence whose drop breaks up again within K steps into as many drops of the volumes
 the drops had before, paired largest to largest within ``SAME_VOLUME`` (drops that bounce off each other
 through a film too thin for the mesh, which reads as contact for a step or two; a partial coalescence, whose
-drops merge and pinch off a smaller satellite, is kept), are removed with their undoing event; the tracks are renamed so that the drops keep the ids they had before.
+drops merge and pinch off a smaller satellite, is kept), are removed with their undoing event; the tracks
+are renamed so that the drops keep the ids they had before.
 K counts the series' own step numbers (a run on every other step, or with a step left out, keeps the span).
 """
 
