@@ -39,6 +39,15 @@ MIN_VARIATION = 1e-3
 #: 1.33 on 32^2, 1.44 on 128 x 64, 1.16 on 16^2)
 WALLED_SHARE = 1.25
 
+#: ... but only where the two boundary layers differ (root mean square) by at least this many times the
+#: walled reading, or join wrapped within :data:`CLOSE_JOIN` of the roughest inner layer (our thresholds:
+#: walled fields whose boundary layers are near images, a meniscus on each side wall or a drop on each of
+#: two opposite walls differing by less than a cell, join wrapped about as walled and read up to 0.46, at
+#: 0.37 of the inner layer or more; sharp drops crossing by more than a cell read below 0.5 only when
+#: centred within about 0.7 cell of the boundary, as near images as those)
+DISTINCT_LAYERS = 0.5
+CLOSE_JOIN = 0.3
+
 #: a clear join: wrapped at most this share of the roughest inner layer (our threshold: a sharp drop
 #: centred within half a cell of the boundary reads 0.02 to 0.23, white noise 0.8)
 CLEAR_JOIN = 0.25
@@ -226,7 +235,12 @@ def _layers_look_periodic(field: np.ndarray, mesh_axes, periodic, level: float) 
         if not wrapped <= inner:
             continue
         cut = all(np.any(layer > level) and np.any(layer < level) for layer in (first, last))
-        share = (CLEAR_WALLED_SHARE if wrapped <= CLEAR_JOIN * inner else WALLED_SHARE) if cut else 1.0
+        share = 1.0
+        if cut and wrapped <= CLEAR_JOIN * inner:
+            share = CLEAR_WALLED_SHARE
+        elif cut and (float(np.sqrt(np.mean(np.square(jump)))) >= DISTINCT_LAYERS * walled
+                      or wrapped <= CLOSE_JOIN * inner):
+            share = WALLED_SHARE  # near images (jump about 0) read wrapped about as walled: no allowance
         if wrapped < share * walled:
             found.append(name)
     return found
@@ -268,7 +282,11 @@ def cells_look_periodic(mesh: Mesh, c_cell, *, periodic=(), level: float = 0.5) 
           layer: a sharp (volume-of-fluid) drop across the boundary joins wrapped no better than
           walled by this measure, its fractions along an interface row bending where the interface
           leaves the row, while a drop on one wall, or two at different places on both, read many
-          times more wrapped than walled.
+          times more wrapped than walled. ``WALLED_SHARE`` is allowed only where the two boundary
+          layers differ (root mean square) by at least ``DISTINCT_LAYERS`` times the walled reading,
+          or join wrapped within ``CLOSE_JOIN`` of the roughest inner layer: layers that are near
+          images (a meniscus on each side wall, drops on two opposite walls, sides differing by less
+          than a cell) join wrapped about as walled, a tie and no sign.
 
     Notes
     -----
