@@ -199,6 +199,41 @@ def test_drops_that_touch_and_separate_again_can_be_ignored():
     assert events["kind"].tolist() == ["coalescence", "breakup"]
 
 
+def test_partial_coalescence_is_kept_when_remerges_are_ignored():
+    """Blocks of 48 and 32 cells merge at step 2 and the merged drop pinches off a satellite of 8 cells at step
+    3 (a partial coalescence): scipy.ndimage.label counts 2, 2, 1, 2 drops of 48 + 32, then 72 + 8 cells, so
+    the drops after do not pair with those before within SAME_VOLUME; the coalescence and the breakup are kept
+    with ignore_remerge_within=1 as without it, and the smaller drop's track ends at the contact (the satellite
+    is a new drop), while drops that bounce are still dropped (the test above)."""
+    from scipy import ndimage
+
+    mesh = grid_mesh((N, N))
+    X = mesh.cell_centroids
+    core = np.abs(X[:, 1] - 0.5) < 4 * H
+    left = core & (X[:, 0] > 0.5 - 6 * H) & (X[:, 0] < 0.5)
+    right = core & (X[:, 0] > 0.5 + H) & (X[:, 0] < 0.5 + 5 * H)
+    merged = core & (X[:, 0] > 0.5 - 6 * H) & (X[:, 0] < 0.5 + 4 * H)
+    big = core & (X[:, 0] > 0.5 - 7 * H) & (X[:, 0] < 0.5 + 2 * H)
+    satellite = core & (X[:, 0] > 0.5 + 3 * H) & (X[:, 0] < 0.5 + 4 * H)  # within the merged drop's place
+    shapes = [left | right, left | right, merged, big | satellite]
+    i, j = np.floor(X[:, 0] / H).astype(int), np.floor(X[:, 1] / H).astype(int)
+    sizes = []
+    for inside in shapes:
+        image = np.zeros((N, N), dtype=bool)
+        image[j, i] = inside
+        labels, count = ndimage.label(image)  # the outside count of drops and their cells
+        sizes.append(sorted(np.bincount(labels.ravel())[1:].tolist()))
+    assert sizes == [[32, 48], [32, 48], [80], [8, 72]]
+    steps = series(mesh, shapes)
+    for within in (0, 1, 3):
+        droplets, events = track_droplets(steps, ignore_remerge_within=within)
+        assert events["kind"].tolist() == ["coalescence", "breakup"] and events["step"].tolist() == [2, 3]
+        first = droplets[droplets["step"] == 0].set_index("track")["volume"]
+        last = droplets[droplets["step"] == 3].set_index("track")["volume"]
+        assert int(first.idxmin()) not in last.index  # the satellite is a new drop, not the smaller one's
+        np.testing.assert_allclose(sorted(last / H ** 2), [8, 72], rtol=1e-9)
+
+
 def test_remerge_span_counts_step_numbers_not_steps_analysed():
     """The same split and merge seen on every other step (steps 0, 2, 4, ...: a run on ``--steps ::2``) or
     with step 3 left out (a file that could not be read): the breakup at step 2 and the merge at step 6

@@ -39,9 +39,21 @@ MIN_VARIATION = 1e-3
 #: 1.33 on 32^2, 1.44 on 128 x 64, 1.16 on 16^2)
 WALLED_SHARE = 1.25
 
+#: ... but only where the two boundary layers differ (root mean square) by at least this many times the
+#: walled reading, or join wrapped within :data:`CLOSE_JOIN` of the roughest inner layer (our thresholds:
+#: walled fields whose boundary layers are near images, a meniscus on each side wall or a drop on each of
+#: two opposite walls differing by less than a cell, join wrapped about as walled and read up to 0.46, at
+#: 0.37 of the inner layer or more; sharp drops crossing by more than a cell read below 0.5 only when
+#: centred within about 0.7 cell of the boundary, near images as those are)
+DISTINCT_LAYERS = 0.5
+#: (our threshold: such a drop on 128 x 64 cells, 0.57 cell off the boundary, reads 0.28)
+CLOSE_JOIN = 0.3
+
 #: a clear join: wrapped at most this share of the roughest inner layer (our threshold: a sharp drop
-#: centred within half a cell of the boundary reads 0.02 to 0.23, white noise 0.8)
-CLEAR_JOIN = 0.25
+#: centred within half a cell of the boundary reads 0.02 to 0.23, white noise 0.8; a drop on each of two
+#: opposite walls, a fifth of a cell apart, reads 0.14 to 0.24 and 1.3 to 1.55 times the walled reading,
+#: while the drops crossing read up to 1.14 times it above 0.1 of the inner layer)
+CLEAR_JOIN = 0.1
 
 #: ... which may then read up to this many times the walled reading (our threshold: such a drop
 #: reads up to 1.69; two unlike drops on both walls read 7 and more, a film thinning steadily from
@@ -226,7 +238,12 @@ def _layers_look_periodic(field: np.ndarray, mesh_axes, periodic, level: float) 
         if not wrapped <= inner:
             continue
         cut = all(np.any(layer > level) and np.any(layer < level) for layer in (first, last))
-        share = (CLEAR_WALLED_SHARE if wrapped <= CLEAR_JOIN * inner else WALLED_SHARE) if cut else 1.0
+        share = 1.0
+        if cut and wrapped <= CLEAR_JOIN * inner:
+            share = CLEAR_WALLED_SHARE
+        elif cut and (float(np.sqrt(np.mean(np.square(jump)))) >= DISTINCT_LAYERS * walled
+                      or wrapped <= CLOSE_JOIN * inner):
+            share = WALLED_SHARE  # near images (jump about 0) read wrapped about as walled: no allowance
         if wrapped < share * walled:
             found.append(name)
     return found
@@ -268,7 +285,11 @@ def cells_look_periodic(mesh: Mesh, c_cell, *, periodic=(), level: float = 0.5) 
           layer: a sharp (volume-of-fluid) drop across the boundary joins wrapped no better than
           walled by this measure, its fractions along an interface row bending where the interface
           leaves the row, while a drop on one wall, or two at different places on both, read many
-          times more wrapped than walled.
+          times more wrapped than walled. ``WALLED_SHARE`` is allowed only where the two boundary
+          layers differ (root mean square) by at least ``DISTINCT_LAYERS`` times the walled reading,
+          or join wrapped within ``CLOSE_JOIN`` of the roughest inner layer: layers that are near
+          images (a meniscus on each side wall, drops on two opposite walls, sides differing by less
+          than a cell) join wrapped about as walled, a tie and no sign.
 
     Notes
     -----
@@ -278,10 +299,11 @@ def cells_look_periodic(mesh: Mesh, c_cell, *, periodic=(), level: float = 0.5) 
     roughest inner layer wrapped and is smaller wrapped than walled at every resolved step; the
     same run with walls (cosine transform, no flux) reads 5.9 to 25 wrapped; its starting noise
     reads 0.85 wrapped and 0.48 walled (no sign). Sharp drops across the boundary of a 2 x 1 box
-    (cell fractions of exact discs, 32 to 128 cells across, radius 0.05 to 0.3): every drop that
-    crosses it by more than a cell is named (657 of 658, 413 before the allowance where the
-    contour cuts), but those centred on it so nearly that their fractions (16 x 16 samples a
-    cell) are mirror images. An axis with fewer than 4 layers is not checked.
+    (cell fractions of exact discs, 16 x 16 samples a cell, radius 0.05 to 0.3, seeded) that cross
+    it by more than a cell, their fractions not mirror images: 196 of 198 named on 128 x 64 cells,
+    149 of 174 on 64 x 32, 81 of 125 on 32 x 16; those centred within 0.7 cell of the boundary
+    are near images and may go unnamed, as walled fields alike on both walls must. An axis with
+    fewer than 4 layers is not checked.
     """
     grid = mesh.regular_grid
     values = np.asarray(c_cell, dtype=np.float64)
