@@ -13,7 +13,8 @@ import pytest
 
 from phasegauge import measure
 from phasegauge.meshgen import grid_mesh, to_meshio
-from phasegauge.run.assemble import MAX_SHIFT, findings
+from phasegauge.run._bulk_findings import MAX_SHIFT
+from phasegauge.run.assemble import findings
 from phasegauge.run.options import MeasureOptions
 
 
@@ -149,3 +150,21 @@ def test_a_cahn_hilliard_equilibrium_drop_is_noted(tmp_path, with_model):
     assert note.figures["shift_low"] == pytest.approx(linearised, rel=0.1)
     assert note.figures["shift_high"] == pytest.approx(linearised, rel=0.1)  # the drop's plateau, read off its tail
     assert ("expected_shift" in note.figures) == with_model
+
+
+def test_a_run_that_starts_on_the_wells_is_judged_step_by_step():
+    """A Cahn-Hilliard run started from a tanh profile on the wells (step 0: bulks at 0 and 1, c within [0, 1])
+    relaxes to both bulks shifted alike (+0.0082 and +0.0075, the relaxed drop of the test below against the
+    linearised Gibbs-Thomson shift 0.0078, Cahn & Hilliard 1958): each step with overshoot is judged on its own
+    two bulks, not the first step's well beside a later step's plateau (which read "one sits on its well")."""
+    steps = pd.DataFrame({"step": [0, 1, 2], "time": [0.0, 0.5, 1.0], "bulk_c_low": [0.0, 0.0082, 0.0082],
+                          "bulk_c_high": [1.0, 1.0075, 1.0075], "c_min": [0.0, 0.0081, 0.0081],
+                          "c_max": [1.0, 1.0076, 1.0076], "overshoot_volume": [0.0, 1e-3, 1e-3],
+                          "domain_volume": [1.0, 1.0, 1.0]})
+    found = {f.kind: f for f in findings(steps, pd.DataFrame(), {"interface_kind": "diffuse"},
+                                         MeasureOptions(field="c"), [], dimension=2)}
+    assert "bulk_plateaus" in found and "indicator_overshoot" not in found
+    steps.loc[2, "bulk_c_low"] = 0.0  # a later step with one bulk back on its well: overshoot, that step named
+    found = {f.kind: f for f in findings(steps, pd.DataFrame(), {"interface_kind": "diffuse"},
+                                         MeasureOptions(field="c"), [], dimension=2)}
+    assert "at step 2 the bulk sits at c = 0 and 1.008" in found["indicator_overshoot"].text

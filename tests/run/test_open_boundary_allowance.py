@@ -47,7 +47,9 @@ def _findings(steps):
 def test_the_allowance_covers_the_trapezoids_error_of_a_resolved_flow_and_no_more(dt):
     # the allowance was half the change of the rate times the interval, summed: 23.6 % of V0 at dt = 0.1
     # (11.8 % at 0.05) against the trapezoid's real error of 1.16 % (0.29 %); now the error term from
-    # second differences, at least the real error and no more than 4 times it (our threshold)
+    # second differences (twice it: SMOOTH_MARGIN), the first and the last interval at the first-order bound:
+    # at least the real error and no more than 10 times it (our threshold; 8.5 and 10 measured: 9.9 % and
+    # 2.9 % of V0, so a leak of 1 % an output is still found, the test below)
     from scipy.integrate import quad
 
     from phasegauge.run._drift_findings import outflow_allowance
@@ -59,7 +61,7 @@ def test_the_allowance_covers_the_trapezoids_error_of_a_resolved_flow_and_no_mor
     error = np.abs(table["phase_volume_outflow"].to_numpy() - exact)
     allowance = outflow_allowance(table)
     assert np.all(allowance >= error - 1e-12)
-    assert allowance[-1] <= 4 * error.max()
+    assert allowance[-1] <= 10.5 * error.max()
 
 
 @pytest.mark.parametrize("dt, leak", [(0.1, 0.01), (0.05, 0.002)])
@@ -220,3 +222,17 @@ def test_a_poiseuille_inlet_on_points_keeps_its_flux_and_is_bracketed(n):
     assert flux["boundary_phase_outflow"] == pytest.approx(-0.5 * (1 - 1 / n ** 2), rel=1e-12)
     assert flux["boundary_phase_outflow"] - flux["boundary_phase_outflow_unknown"] <= -0.5
     assert flux["boundary_phase_outflow_unknown"] == pytest.approx(2 * (0.5 / n) * 3 * (1 / n) * (1 - 1 / n), rel=1e-9)
+
+
+@pytest.mark.parametrize("start", [0.0, 0.3])
+def test_a_rate_decaying_from_the_first_output_is_no_gain(start):
+    # a dye gradient flushed out of a channel [0, 2] x [0, 0.5] by a plug flow u = 1: c = e^(-3 (2 - x + t)),
+    # the phase volume e^(-3 t) (1 - e^-6) / 6 and the net outflow rate 0.5 e^(-3 t) (1 - e^-6), exactly
+    # [analytic], output every 1/6 (two outputs an e-folding). The first interval's curvature is largest where
+    # no second difference sees it (the trapezoid's error there 0.82 % of V0 against an allowance of 0.65 %
+    # read "+0.815 % gained"): the end intervals take the first-order bound
+    t = start + np.round(np.arange(0, 2.0001, 1 / 6), 10)
+    rate = 0.5 * np.exp(-3 * t) * (1 - np.exp(-6))
+    volume = np.exp(-3 * t) * (1 - np.exp(-6)) / 6
+    found, _ = _findings((t, volume, rate))
+    assert "phase_volume_drift" not in found

@@ -77,8 +77,7 @@ MEAN_DRIFT = 0.02
 
 
 #: how to mend an inflow section the sections' figures cannot be read against
-_INFLOW_FIX = ("put the sections across the whole channel, downstream of every inlet (--section-positions), or give "
-               "the inflow's mean (--inflow-mean)")
+_INFLOW_FIX = "sections downstream of every inlet (--section-positions), or the inflow's mean (--inflow-mean)"
 
 
 def _area_weighted_notes(table: pd.DataFrame, global_axis: int, inflow_at: int | None = None) -> list:
@@ -154,20 +153,16 @@ def _inflow_reference(table: pd.DataFrame, flux_means: np.ndarray, first: int, g
         # a section downstream more segregated than the first: not the inflow of that segregation, since mixing
         # along a channel does not undo itself (a first section with every later one as segregated or more
         # mixed: kept, uniform or not)
+        other_way = "" if flowing else f"flow towards -{name}, or "
         if own[first] < UNIFORM_INFLOW:
-            problem = (f"{where} is uniform (mean c {inflow:.3g}, intensity of segregation {own[first]:.2g}, "
-                       f"{later.max():.2g} downstream): no segregated inflow to measure mixing against (an inlet "
-                       "further downstream, such as dye injected into the carrier, or a premixed inflow)")
+            problem = (f"{where} is uniform (segregation {own[first]:.2g}, {later.max():.2g} downstream): "
+                       f"no segregated inflow ({other_way}dye injected downstream of it, or a premixed inflow)")
         else:
-            problem = (f"{where} is less segregated than a section after it (intensity of segregation "
-                       f"{own[first]:.2g} against {later.max():.2g}), and mixing along a channel does not undo itself: "
-                       + ("the flow may run the other way (without --velocity the sections are taken along +"
-                          f"{name}), or an inlet lies further downstream" if not flowing
-                          else "an inlet lies further downstream"))
+            problem = (f"{where} is less segregated than a section after it ({own[first]:.2g} against "
+                       f"{later.max():.2g}): not its inflow ({other_way}dye injected downstream of it)")
     if problem:
-        fix = _INFLOW_FIX if flowing else f"give the velocity field (--velocity) for the flow's direction, or {_INFLOW_FIX}"
-        notes.append(PhasegaugeWarning(f"{problem}, so the mixing index against the inflow, and the mixing "
-                                       f"length read from it, are undefined: {fix}"))
+        fix = _INFLOW_FIX if flowing else "the velocity (--velocity), " + _INFLOW_FIX
+        notes.append(PhasegaugeWarning(f"{problem}; mixing length and index against it undefined: {fix}"))
         return np.nan, notes  # no index against it, not a huge or a wrong one
     if not flowing:  # flow-weighted means are kept by a steady flow, and change at a dye front: nothing to judge
         notes += _drifting_mean(table, means, first, inflow, name)
