@@ -113,3 +113,23 @@ def test_hexahedra_read_as_polyhedra_fit_as_the_hexahedra(tmp_path, request, eve
     got = split.mesh.cell_to_point(split.fields.cell_data["phi"])[:n]
     assert inner.sum() > 10
     np.testing.assert_allclose(got[inner], exact[inner], rtol=0, atol=1e-12)
+
+
+def test_whole_values_are_the_pieces_measure_weighted_means(tmp_path):
+    points, cells, _ = _sheared_hexahedra()
+    mesh = _read(_as_polyhedra(points, cells, broken=(20, 50)), tmp_path / "polyhedra.vtu").mesh
+    from phasegauge.model._whole_points import whole_points, whole_values
+
+    view = whole_points(mesh)
+    values = np.random.default_rng(0).random((mesh.n_cells, 2))
+    values[np.flatnonzero(mesh.cell_parents == 50)[0], 1] = np.nan
+    got = whole_values(view, values)
+    for cell in range(view.n_cells):
+        own = mesh.cell_parents == cell
+        expected = np.average(values[own], axis=0, weights=mesh.cell_measures[own])  # numpy's weighted mean
+        np.testing.assert_allclose(got[cell], expected, rtol=1e-14, atol=0)
+    for cell in np.flatnonzero(np.bincount(mesh.cell_parents) == 1):  # hexahedra kept whole: their own values
+        np.testing.assert_array_equal(got[cell], values[mesh.cell_parents == cell][0])
+    assert np.isnan(got[50, 1]) and np.isfinite(got[50, 0]) and np.isfinite(got[20]).all()
+    # the whole cells' centroids: the hexahedra's, their corners' mean (a parallelepiped's)
+    np.testing.assert_allclose(view.cell_centroids, points[cells].mean(axis=1), rtol=0, atol=1e-15)

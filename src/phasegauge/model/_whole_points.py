@@ -35,7 +35,7 @@ def whole_points(mesh: Mesh) -> "WholePoints":
 def whole_values(view: "WholePoints", flat: np.ndarray) -> np.ndarray:
     """Each whole cell's measure-weighted mean of its pieces' values ``flat`` (n_pieces, k): (n_whole, k),
     NaN where a piece is not finite and for a number with no pieces; a whole cell of zero measure takes its
-    pieces' plain mean."""
+    pieces' plain mean, a cell that is its own one piece that piece's value."""
     parents, n = view.parents, view.n_cells
     out = np.empty((n, flat.shape[1]))
     has = view.piece_counts > 0
@@ -48,6 +48,7 @@ def whole_values(view: "WholePoints", flat: np.ndarray) -> np.ndarray:
                 out[zero, j] = (np.bincount(parents, weights=column, minlength=n)[zero]
                                 / view.piece_counts[zero])
     out[~has] = np.nan
+    out[view.single_cells] = flat[view.single_pieces]  # a cell that is its own one piece: its value itself
     return out
 
 
@@ -65,6 +66,11 @@ class WholePoints:
     parents, piece_measures, piece_counts : ndarray
         The whole cell of each piece (:attr:`Mesh.cell_parents`), each piece's measure, each whole
         cell's number of pieces.
+    single_cells, single_pieces : ndarray
+        The whole cells that are their own one piece (a cell kept whole beside split ones), and that piece.
+    inner_points, inner_cells : ndarray
+        The points every piece of one whole cell holds, and no other cell (a split cell's own centre), and
+        that cell.
     """
 
     cell_parents = None
@@ -80,6 +86,10 @@ class WholePoints:
         self.piece_measures = mesh.cell_measures
         self.piece_counts = np.bincount(parents, minlength=n)
         self.cell_measures = np.bincount(parents, weights=self.piece_measures, minlength=n)
+        piece = np.empty(n, dtype=np.int64)
+        piece[parents] = np.arange(parents.size)
+        self.single_cells = np.flatnonzero(self.piece_counts == 1)
+        self.single_pieces = piece[self.single_cells]
         self.cell_centroids = whole_cell_centroids(mesh)
         self.cell_sizes = mesh._whole_cell_sizes
         self._point_cells, self.inner_points, self.inner_cells = _whole_point_cells(mesh, parents, n,

@@ -47,36 +47,42 @@ def level_set_points(mesh: Mesh, phi_cell: np.ndarray) -> np.ndarray:
         target = whole_points(mesh)
         phi = whole_values(target, phi[:, None])[:, 0]
     good = np.isfinite(phi)
+    centres, at_centres = (None, None) if target is mesh else _added_centre_values(mesh, target, phi, good)
 
     def ill_posed(points):  # the fit through two rings, else the corners' mean
-        values = _two_ring_values(target, phi, good, points)
-        missing = ~np.isfinite(values)
+        values = np.full(points.size, np.nan)
+        rest = np.ones(points.size, dtype=bool) if centres is None else ~np.isin(points, centres)
+        values[rest] = _two_ring_values(target, phi, good, points[rest])
+        missing = rest & ~np.isfinite(values)
         if missing.any():
             values[missing] = weighted_point_means(target, phi[:, None], good[:, None], points[missing])[:, 0]
         return values[:, None]
 
     values = linear_point_values(target, phi[:, None], good, ill_posed, limited=False)[:, 0]
-    return values if target is mesh else _at_added_centres(mesh, target, phi, good, values)
+    if centres is not None:
+        values[centres] = at_centres
+    return values
 
 
-def _at_added_centres(mesh: Mesh, view, phi: np.ndarray, good: np.ndarray, values: np.ndarray) -> np.ndarray:
-    """``values`` with the centres a reader added to split cells set, in place: the centre inside a cell (a
-    point every piece of one whole cell holds, and no other cell) to that cell's phi, the fit through its one
-    sample; a face centre between cells to their measure-weighted mean (the fit through their two samples, at
-    the middle of their centroids), not the fit two rings out, whose wider stencil adds more curvature."""
+def _added_centre_values(mesh: Mesh, view, phi: np.ndarray, good: np.ndarray) -> tuple:
+    """The centres a reader added to split cells that take a value of their own, and those values:
+    ``(points, values)``, ``(None, None)`` where none. The centre inside a cell (a point every piece of one
+    whole cell holds, and no other cell) takes that cell's phi, the fit through its one sample; a face centre
+    between cells their measure-weighted mean (the fit through their two samples, at the middle of their
+    centroids), not the fit two rings out, whose wider stencil adds more curvature; a face centre on a wall
+    (one cell) takes the fits of the points of the file."""
     from ._conversions import weighted_point_means
     from .polyhedra import SPLIT_CENTRES
 
-    centres = mesh.memo(SPLIT_CENTRES, lambda: None, keep=False)
-    if centres is None:
-        return values
-    own = np.isin(view.inner_points, centres.points)
-    values[view.inner_points[own]] = phi[view.inner_cells[own]]
-    pc, points = view._point_cells, np.unique(centres.points)
-    between = points[np.diff(pc.indptr)[points] > 1]
-    if between.size:
-        values[between] = weighted_point_means(view, phi[:, None], good[:, None], between)[:, 0]
-    return values
+    added = mesh.memo(SPLIT_CENTRES, lambda: None, keep=False)
+    if added is None:
+        return None, None
+    own = np.isin(view.inner_points, added.points)
+    inner, cells = view.inner_points[own], view.inner_cells[own]
+    points = np.unique(added.points)
+    between = np.setdiff1d(points[np.diff(view._point_cells.indptr)[points] > 1], inner)
+    values = np.concatenate([phi[cells], weighted_point_means(view, phi[:, None], good[:, None], between)[:, 0]])
+    return np.concatenate([inner, between]), values
 
 
 def _two_ring_values(mesh: Mesh, phi: np.ndarray, good: np.ndarray, points: np.ndarray) -> np.ndarray:
