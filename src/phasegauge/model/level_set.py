@@ -28,25 +28,61 @@ def level_set_points(mesh: Mesh, phi_cell: np.ndarray) -> np.ndarray:
     mean of the cells around it where even that is ill-posed). Both fits are exact for a linear phi, so
     phi's sign change in the row of cells at a wall is kept. NaN cells are left out.
 
-    The centres a reader added to split cells keep the fit, unlike :meth:`~phasegauge.model.mesh.Mesh.cell_to_point`,
-    which gives them their corners' mean (:func:`~phasegauge.model._conversions.with_centre_means`): a fit
-    through one cell's pieces returns that cell's value, a step for a volume fraction but, for a smooth phi,
-    its value at the cell's centre (to second order; exactly for phi linear), where the corners' mean adds
+    Where a reader split cells (:attr:`~phasegauge.model.mesh.Mesh.cell_parents`) the cells are the whole
+    cells, each one sample at its centroid (:mod:`._whole_points`): a phi linear over the whole cells (the
+    file's values) is reproduced at every point of the file. The centres a reader added keep a fit, unlike
+    :meth:`~phasegauge.model.mesh.Mesh.cell_to_point`, which gives them their corners' mean
+    (:func:`~phasegauge.model._conversions.with_centre_means`): a cell's own centre its cell's value, a step
+    for a volume fraction but, for a smooth phi, its value at the cell's centre (to second order; exactly for
+    phi linear), a face centre between two cells their measure-weighted mean, where the corners' mean adds
     the corners' own error and the curvature's (a sphere's distance on prisms of 1/20: 2e-16 against 9e-3
-    at the cell centres, 2e-3 against 7e-3 at the face centres, mean errors; the points of the file 4.5e-3)."""
+    at the cell centres, 2.0e-3 against 7.1e-3 at the face centres, mean errors; 1.6e-2 by the fit two
+    rings out; the points of the file 4.5e-3)."""
     from ._conversions import linear_point_values, weighted_point_means
 
-    phi = np.asarray(phi_cell, dtype=np.float64)
+    phi, target = np.asarray(phi_cell, dtype=np.float64), mesh
+    if mesh.cell_parents is not None:  # the pieces of one whole cell are one sample
+        from ._whole_points import whole_points, whole_values
+
+        target = whole_points(mesh)
+        phi = whole_values(target, phi[:, None])[:, 0]
     good = np.isfinite(phi)
+    centres, at_centres = (None, None) if target is mesh else _added_centre_values(mesh, target, phi, good)
 
     def ill_posed(points):  # the fit through two rings, else the corners' mean
-        values = _two_ring_values(mesh, phi, good, points)
-        missing = ~np.isfinite(values)
+        values = np.full(points.size, np.nan)
+        rest = np.ones(points.size, dtype=bool) if centres is None else ~np.isin(points, centres)
+        values[rest] = _two_ring_values(target, phi, good, points[rest])
+        missing = rest & ~np.isfinite(values)
         if missing.any():
-            values[missing] = weighted_point_means(mesh, phi[:, None], good[:, None], points[missing])[:, 0]
+            values[missing] = weighted_point_means(target, phi[:, None], good[:, None], points[missing])[:, 0]
         return values[:, None]
 
-    return linear_point_values(mesh, phi[:, None], good, ill_posed, limited=False)[:, 0]
+    values = linear_point_values(target, phi[:, None], good, ill_posed, limited=False)[:, 0]
+    if centres is not None:
+        values[centres] = at_centres
+    return values
+
+
+def _added_centre_values(mesh: Mesh, view, phi: np.ndarray, good: np.ndarray) -> tuple:
+    """The centres a reader added to split cells that take a value of their own, and those values:
+    ``(points, values)``, ``(None, None)`` where none. The centre inside a cell (a point every piece of one
+    whole cell holds, and no other cell) takes that cell's phi, the fit through its one sample; a face centre
+    between cells their measure-weighted mean (the fit through their two samples, at the middle of their
+    centroids), not the fit two rings out, whose wider stencil adds more curvature; a face centre on a wall
+    (one cell) takes the fits of the points of the file."""
+    from ._conversions import weighted_point_means
+    from .polyhedra import SPLIT_CENTRES
+
+    added = mesh.memo(SPLIT_CENTRES, lambda: None, keep=False)
+    if added is None:
+        return None, None
+    own = np.isin(view.inner_points, added.points)
+    inner, cells = view.inner_points[own], view.inner_cells[own]
+    points = np.unique(added.points)
+    between = np.setdiff1d(points[np.diff(view._point_cells.indptr)[points] > 1], inner)
+    values = np.concatenate([phi[cells], weighted_point_means(view, phi[:, None], good[:, None], between)[:, 0]])
+    return np.concatenate([inner, between]), values
 
 
 def _two_ring_values(mesh: Mesh, phi: np.ndarray, good: np.ndarray, points: np.ndarray) -> np.ndarray:

@@ -543,7 +543,9 @@ class Mesh:
             to the range of those cell values; exact for linear fields at
             interior points, bounded where the field jumps. ``mean``: the
             measure-weighted mean of those cells (first order on uneven
-            stencils).
+            stencils). Where a reader split cells (:attr:`cell_parents`) the
+            cells are the whole cells: each one sample, its pieces'
+            measure-weighted mean at its centroid, weighted by its measure.
 
         threads : int
             Threads for a new mesh's linear fit (made once; the same values on any number).
@@ -566,10 +568,15 @@ class Mesh:
             raise ValueError(f"expected {self.n_cells} cell values, found {v.shape[0]}")
         if method not in ("linear", "mean"):
             raise ValueError(f"method must be 'linear' or 'mean', not {method!r}")
-        flat = v.reshape(self.n_cells, -1)
+        flat, target = v.reshape(self.n_cells, -1), self
+        if self.cell_parents is not None:  # the pieces of one whole cell are one sample
+            from ._whole_points import whole_points, whole_values
+
+            target = whole_points(self)
+            flat = whole_values(target, flat)
         finite = np.isfinite(flat)
-        means = partial(weighted_point_means, self, flat, finite)
-        out = means() if method == "mean" else linear_point_values(self, flat, np.all(finite, axis=1), means,
+        means = partial(weighted_point_means, target, flat, finite)
+        out = means() if method == "mean" else linear_point_values(target, flat, np.all(finite, axis=1), means,
                                                                    threads=threads)
         out = with_centre_means(self, out)  # centres a reader added: their corners' mean, either method
         return out.reshape((self.n_points,) + v.shape[1:])
