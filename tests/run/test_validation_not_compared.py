@@ -123,3 +123,23 @@ def test_a_blank_time_in_a_file_with_times_is_named(tmp_path):
     with warnings.catch_warnings():
         warnings.simplefilter("error")
         read_measured_file(untimed)
+
+
+def test_a_bad_number_is_named_by_its_line_in_the_file(tmp_path):
+    # comment lines count: line 4 of the file below (the error read "line 3", the third table row's place)
+    from phasegauge.errors import InputError
+
+    path = tmp_path / "m.csv"
+    path.write_text("# sensor log\nx,y,value\n0.5,0.5,0.5\n0.7,0.5,inf\n")
+    with pytest.raises(InputError, match="column 'value' of the measured file is not a finite number on line 4"):
+        read_measured_file(path)
+
+
+def test_the_overlay_title_counts_the_values_not_compared():
+    from phasegauge.report._plots_probes import plot_validation_overlay
+
+    times = np.array([0.0, 1.0])
+    measured = [(0.0, 0.0, 0.0, 1.0, 0.0, 0.1), (0.0, 0.0, 0.0, 1.0, 0.5, 0.1), (0.0, 0.0, 0.0, 1.0, 1.0, 0.1)]
+    table = validation_table(measured, times, np.array([[1.0] * 3, [np.nan] * 3]))
+    figure = plot_validation_overlay(table, validation_summary(table))
+    assert "2 of 3 values not compared" in figure.axes[0].get_title()
