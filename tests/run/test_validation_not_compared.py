@@ -143,3 +143,25 @@ def test_the_overlay_title_counts_the_values_not_compared():
     table = validation_table(measured, times, np.array([[1.0] * 3, [np.nan] * 3]))
     figure = plot_validation_overlay(table, validation_summary(table))
     assert "2 of 3 values not compared" in figure.axes[0].get_title()
+
+
+def test_the_not_compared_warnings_stay_whole_with_many_values():
+    # each warning names a few values and counts the rest, within the message's length limit (our limit,
+    # errors.WHAT_LIMIT): cut in the middle, it would lose its count or its fix
+    from phasegauge.errors import WHAT_LIMIT
+    from phasegauge.run._sampling import _not_compared_notes
+
+    times = np.array([0.0, 1.0, 2.0, 3.0])
+    rng = np.random.default_rng(1)
+    at = np.r_[rng.uniform(1.1, 1.9, 5), rng.uniform(2.1, 2.9, 5)]
+    timed = [(*rng.uniform(0.1, 0.9, 3), 0.5, t, 0.01) for t in at]
+    untimed = [(*rng.uniform(0.1, 0.9, 3), 0.5, np.nan, 0.01) for _ in range(5)]
+    simulated = np.full((4, 15), 0.123456789)
+    simulated[2:, :] = np.nan  # steps 2 and 3 empty; between steps 1 and 2 a skipped step (gaps)
+    table = validation_table(timed + untimed, times, simulated)
+    gaps = np.array([False, True, False])
+    notes = _not_compared_notes(table, times, np.arange(4), gaps, np.zeros(0))
+    assert len(notes) == 3
+    for _, text, _ in notes:
+        assert len(text) <= WHAT_LIMIT and " more" in text, text
+    assert notes[-1][1].endswith("see that step's warnings")

@@ -274,7 +274,7 @@ def _gaps(results, steps) -> np.ndarray:
     return np.searchsorted(skipped, steps[1:], side="left") > lo
 
 
-def _named(rows, limit=4) -> str:
+def _named(rows, limit=3) -> str:
     """Measured values as ``(x, y, z) at t``, the first ``limit`` of them, then how many more."""
     text = ", ".join(f"({x:.6g}, {y:.6g}, {z:.6g})" + (f" at t = {t:.6g}" if np.isfinite(t) else "")
                      for x, y, z, t in rows[:limit])
@@ -311,7 +311,7 @@ def _not_compared_notes(table, times, steps, gaps, outside) -> list:
     if final.size:
         step = table["step"].iloc[final[0]]
         parts = []
-        for i in final[:4]:
+        for i in final[:2]:  # (the warning stays one line under the message's length limit)
             x, y, z, _ = xyzt[i]
             same = every & (xyzt[:, 0] == x) & (xyzt[:, 1] == y) & (xyzt[:, 2] == z) & \
                 (table["measured"].to_numpy() == table["measured"].iloc[i]) & ~empty
@@ -319,7 +319,7 @@ def _not_compared_notes(table, times, steps, gaps, outside) -> list:
             parts.append(f"({x:.6g}, {y:.6g}, {z:.6g})" + (
                 f" (last value at step {table['step'].iloc[seen[-1]]}, difference "
                 f"{table['difference'].iloc[seen[-1]]:.3g})" if seen.size else " (no step has a value)"))
-        more = f" and {final.size - 4} more" if final.size > 4 else ""
+        more = f" and {final.size - 2} more" if final.size > 2 else ""
         notes.append((PhasegaugeWarning, f"{final.size} measured value(s) without a time have no simulated value at "
                       f"the last step {step} (t = {last:.6g}), not compared in the overall row: "
                       f"{', '.join(parts)}{more}; see that step's warnings", ""))
