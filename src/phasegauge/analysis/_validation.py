@@ -14,11 +14,22 @@ __all__ = ["validation_table", "validation_summary", "VALIDATION_COLUMNS", "SUMM
 VALIDATION_COLUMNS = ("step", "time", "x", "y", "z", "measured", "simulated", "difference", "uncertainty",
                       "within_uncertainty", "every_step")
 #: columns of validation_summary.csv (one row per time, then one overall row with an empty step and time:
-#: each measured value once, a value without a time at the last step)
-SUMMARY_COLUMNS = ("step", "time", "scope", "points", "rms_error", "bias", "largest_error", "within_uncertainty")
+#: each measured value once, a value without a time at the last step); ``not_compared`` counts the values
+#: whose simulated value is empty there
+SUMMARY_COLUMNS = ("step", "time", "scope", "points", "not_compared", "rms_error", "bias", "largest_error",
+                   "within_uncertainty")
 
 
-def validation_table(measured, times, simulated, *, steps=None):
+def _nearest_step(times, t):
+    """Per time in ``t``, the nearest step and whether ``t`` is that step's time to round-off."""
+    i = np.clip(np.searchsorted(times, t), 0, len(times) - 1)
+    below = np.clip(i - 1, 0, len(times) - 1)
+    at = np.where(np.abs(times[below] - t) < np.abs(times[i] - t), below, i)
+    on_step = np.isclose(times[at], t, rtol=1e-12, atol=1e-12 * max(1.0, float(np.abs(times).max())))
+    return at, on_step
+
+
+def validation_table(measured, times, simulated, *, steps=None, gaps=None):
     """The simulation beside each measured value.
 
     Parameters
@@ -31,6 +42,9 @@ def validation_table(measured, times, simulated, *, steps=None):
         The simulated field at each measured position at every step.
     steps : ndarray of int, shape (n_steps,), optional
         Step numbers of the steps (default 0, 1, ...), for the ``step`` column.
+    gaps : ndarray of bool, shape (n_steps - 1,), optional
+        True where the interval between step ``i`` and ``i + 1`` spans a step that was not read (a
+        damaged file): a time strictly inside it is not compared (the run's value there is unknown).
 
     Returns
     -------
@@ -38,7 +52,10 @@ def validation_table(measured, times, simulated, *, steps=None):
         :data:`VALIDATION_COLUMNS`: a value with a time is compared with the
         simulation interpolated linearly in time there (NaN outside the steps'
         time span; ``step`` is the step at that time, empty between steps);
-        a value without a time is compared at every step.
+        a value without a time is compared at every step. A time on a step (to round-off) takes
+        that step's value alone, and an interpolation weight of 0 never reads the other step, so
+        an empty value at a neighbouring step does not empty it; a time between two steps one of
+        which is empty there, or inside a ``gaps`` interval, is empty (not compared).
         ``difference`` is simulated minus measured; ``within_uncertainty`` is
         |difference| <= uncertainty (empty without an uncertainty), with a round-off allowance of
         1e-12 of the larger value (an uncertainty of 0 claims the value exactly); ``every_step``
@@ -57,17 +74,22 @@ def validation_table(measured, times, simulated, *, steps=None):
     if timed.any():
         k = np.flatnonzero(timed)
         t = rows[k, 4]
+        at, on_step = _nearest_step(times, t)
         if len(times) == 1:
             sim = np.where(np.isclose(t, times[0]), simulated[0, k], np.nan)
         else:
             j = np.clip(np.searchsorted(times, t, side="right") - 1, 0, len(times) - 2)
-            w = (t - times[j]) / (times[j + 1] - times[j])
-            sim = (1 - w) * simulated[j, k] + w * simulated[j + 1, k]
+            w = np.clip((t - times[j]) / (times[j + 1] - times[j]), 0.0, 1.0)  # the run's ends clamp
+            a, b = simulated[j, k], simulated[j + 1, k]
+            with np.errstate(invalid="ignore"):  # 0 * NaN: the step of weight 0 is not read
+                sim = np.where(w == 0, a, np.where(w == 1, b, (1 - w) * a + w * b))
+            sim = np.where(on_step, simulated[at, k], sim)
+            if gaps is not None:
+                gaps = np.asarray(gaps, dtype=bool).reshape(len(times) - 1)
+                sim = np.where(gaps[j] & ~on_step & (w > 0) & (w < 1), np.nan, sim)
             first, last = covered_span(times, span_reach(times))  # (as the convergence and reference checks)
             span = (t >= first) & (t <= last)
             sim = np.where(span, sim, np.nan)
-        at = np.clip(np.searchsorted(times, t), 0, len(times) - 1)
-        on_step = np.isclose(times[at], t, rtol=1e-12, atol=1e-12 * max(1.0, float(np.abs(times).max())))
         parts.append((t, rows[k], sim, np.where(on_step, steps[at], -1), np.zeros(k.size, dtype=bool)))
     if (~timed).any():
         k = np.flatnonzero(~timed)
@@ -96,7 +118,7 @@ def _figures(diff, within):
     d = diff[ok]
     w = within[ok]
     w = w[~w.isna()] if hasattr(w, "isna") else w
-    return {"points": int(d.size),
+    return {"points": int(d.size), "not_compared": int(np.count_nonzero(~ok)),
             "rms_error": float(np.sqrt(np.mean(d * d))) if d.size else np.nan,
             "bias": float(np.mean(d)) if d.size else np.nan,
             "largest_error": float(np.max(np.abs(d))) if d.size else np.nan,
@@ -119,9 +141,12 @@ def validation_summary(table):
         (its step and time empty): each measured value counts once there, a
         value without a time at the last step (the state the run reaches; at
         every step it would weigh as many times as there are steps, the
-        initial state included). Points whose
-        simulated value is empty (outside the mesh or the time span) are left
-        out; ``within_uncertainty`` counts only points with an uncertainty.
+        initial state included; one empty there is counted not compared, not
+        taken at an earlier step: the state the run reaches there is unknown).
+        Points whose simulated value is empty (outside the mesh or the time
+        span, in a cell with no finite value, between steps across a skipped
+        one) are left out of the figures and counted in ``not_compared``;
+        ``within_uncertainty`` counts only points with an uncertainty.
     """
     import pandas as pd
 

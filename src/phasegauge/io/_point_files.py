@@ -11,10 +11,11 @@ formats (see the README): ``name,x,y[,z]`` (probes),
 from __future__ import annotations
 
 import os
+import warnings
 
 import numpy as np
 
-from ..errors import InputError
+from ..errors import InputError, PhasegaugeWarning
 
 __all__ = ["read_probe_file", "read_line_file", "read_measured_file"]
 
@@ -48,6 +49,13 @@ def _columns(table, path, what, required, optional=(), example=""):
                          where=path, fix=f"write the header as '{example}'")
 
 
+def _line_numbers(path, rows) -> list:
+    """The file's line numbers (from 1) of the table's ``rows`` (from 0): blank and comment lines do not count."""
+    with open(path, encoding="utf-8", errors="replace") as handle:
+        kept = [n for n, text in enumerate(handle, start=1) if text.split("#", 1)[0].strip()]
+    return [kept[r + 1] if r + 1 < len(kept) else r + 2 for r in rows]  # kept[0] is the header
+
+
 def _numbers(table, columns, path, what, *, optional=()):
     out = {}
     for c in columns:
@@ -62,7 +70,7 @@ def _numbers(table, columns, path, what, *, optional=()):
         if c in optional:
             bad &= table[c].notna().to_numpy()
         if bad.any():
-            row = int(np.flatnonzero(bad)[0]) + 2
+            row = _line_numbers(path, [int(np.flatnonzero(bad)[0])])[0]
             raise InputError(f"column '{c}' of the {what} file is not a finite number on line {row}", where=path,
                              fix="write a number there")
         out[c] = values
@@ -146,6 +154,12 @@ def read_measured_file(path) -> tuple:
     ------
     InputError
         Unreadable file, wrong header, bad numbers, a negative uncertainty.
+
+    Warns
+    -----
+    PhasegaugeWarning
+        Some rows of a file with times leave the time blank (read as values for every step, which
+        is more often a time left out), naming the lines.
     """
     example = "x,y,z,value,time,uncertainty"
     table, path = _read(path, "measured", example)
@@ -157,5 +171,12 @@ def read_measured_file(path) -> tuple:
     if (unc < 0).any():
         raise InputError("an uncertainty is negative", where=path, fix="give the half-width of the interval (>= 0)")
     z = v.get("z", nan)
+    blank = np.flatnonzero(np.isnan(v["time"])) if "time" in v else np.zeros(0, dtype=int)
+    if 0 < blank.size < len(table):
+        lines = _line_numbers(path, blank.tolist())
+        named = ", ".join(str(n) for n in lines[:8]) + (f" and {len(lines) - 8} more" if len(lines) > 8 else "")
+        warnings.warn(PhasegaugeWarning(f"{blank.size} of {len(table)} measured values have no time (line "
+                                        f"{named}): each is compared at every step, the initial state included; "
+                                        "write its time if it was measured at one", where=path), stacklevel=2)
     return tuple((float(a), float(b), float(c), float(d), float(t), float(u)) for a, b, c, d, t, u
                  in zip(v["x"], v["y"], z, v["value"], v.get("time", nan), unc))

@@ -103,5 +103,8 @@ def plot_validation_overlay(table, summary=None, *, time_origin: str | None = No
     if summary is not None and len(summary):
         overall = summary.iloc[-1]
         title += f"\nRMS error {overall['rms_error']:.3g}, bias {overall['bias']:.3g}"
+        missing = int(overall.get("not_compared", 0) or 0)
+        if missing:  # values the run gives no simulated value for: not in the figures
+            title += f"; {missing} of {missing + int(overall['points'])} values not compared"
     ax.set_title(title)
     return figure

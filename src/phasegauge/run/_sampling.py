@@ -265,11 +265,74 @@ def sample_tables(results, options) -> tuple:
     return probes, lines, measured
 
 
-def run_sample_tables(done, options, numbered: bool = False):
+def _gaps(results, steps) -> np.ndarray:
+    """Per interval between two read steps, True where a skipped step of the run lies between them."""
+    skipped = np.array(sorted(r.index for r in results if r.skipped is not None), dtype=float)
+    if len(steps) < 2:
+        return np.zeros(0, dtype=bool)
+    lo = np.searchsorted(skipped, steps[:-1], side="right")
+    return np.searchsorted(skipped, steps[1:], side="left") > lo
+
+
+def _named(rows, limit=3) -> str:
+    """Measured values as ``(x, y, z) at t``, the first ``limit`` of them, then how many more."""
+    text = ", ".join(f"({x:.6g}, {y:.6g}, {z:.6g})" + (f" at t = {t:.6g}" if np.isfinite(t) else "")
+                     for x, y, z, t in rows[:limit])
+    return text + (f" and {len(rows) - limit} more" if len(rows) > limit else "")
+
+
+def _not_compared_notes(table, times, steps, gaps, outside) -> list:
+    """Warning records naming the measured values the run gives no simulated value for: with a time
+    between two steps across a skipped one, with a time where the run is empty (a point outside the
+    mesh or in a cell with no finite value at a step around it), without a time where the last step is
+    empty (the overall row counts it not compared; its last step with a value and difference there given)."""
+    notes = []
+    empty = table["simulated"].isna().to_numpy()
+    every = table["every_step"].to_numpy(dtype=bool)
+    time = table["time"].to_numpy(dtype=float)
+    xyzt = table[["x", "y", "z", "time"]].to_numpy(dtype=float)
+    timed = empty & ~every & ~np.isin(time, outside)
+    if timed.any() and len(times) > 1:
+        j = np.clip(np.searchsorted(times, time, side="right") - 1, 0, len(times) - 2)
+        across = timed & gaps[j] & table["step"].isna().to_numpy()
+        if across.any():
+            pairs = sorted({(int(steps[i]), int(steps[i + 1])) for i in j[across]})
+            between = ", ".join(f"steps {a} and {b}" for a, b in pairs[:3]) + (" ..." if len(pairs) > 3 else "")
+            notes.append((PhasegaugeWarning, f"{int(across.sum())} measured value(s) between {between}, across a "
+                          f"skipped step, not compared (their simulated values are empty): {_named(xyzt[across])}; "
+                          "repair or rewrite the skipped step's file to compare them", ""))
+        timed &= ~across
+    if timed.any():
+        notes.append((PhasegaugeWarning, f"{int(timed.sum())} measured value(s) with times have no simulated value "
+                      f"(outside the mesh or in a cell with no finite value at a step around the time), not compared: "
+                      f"{_named(xyzt[timed])}; see the warnings of those steps", ""))
+    last = time[every].max(initial=-np.inf)
+    final = np.flatnonzero(empty & every & (time == last))
+    if final.size:
+        step = table["step"].iloc[final[0]]
+        parts = []
+        for i in final[:2]:  # (the warning stays one line under the message's length limit)
+            x, y, z, _ = xyzt[i]
+            same = every & (xyzt[:, 0] == x) & (xyzt[:, 1] == y) & (xyzt[:, 2] == z) & \
+                (table["measured"].to_numpy() == table["measured"].iloc[i]) & ~empty
+            seen = np.flatnonzero(same)
+            parts.append(f"({x:.6g}, {y:.6g}, {z:.6g})" + (
+                f" (last value at step {table['step'].iloc[seen[-1]]}, difference "
+                f"{table['difference'].iloc[seen[-1]]:.3g})" if seen.size else " (no step has a value)"))
+        more = f" and {final.size - 2} more" if final.size > 2 else ""
+        notes.append((PhasegaugeWarning, f"{final.size} measured value(s) without a time have no simulated value at "
+                      f"the last step {step} (t = {last:.6g}), not compared in the overall row: "
+                      f"{', '.join(parts)}{more}; see that step's warnings", ""))
+    return notes
+
+
+def run_sample_tables(results, options, numbered: bool = False):
     """probes.csv, lines.csv, validation.csv and its summary (None where the run has none), and warning
-    records: measured times outside the steps' times (their rows empty: other units?), and measured times
-    left out against steps ``numbered`` by their index (measure refuses those before reading; a guard)."""
-    probes, lines, measured = sample_tables(done, options)
+    records: measured times outside the steps' times (their rows empty: other units?), measured times
+    left out against steps ``numbered`` by their index (measure refuses those before reading; a guard),
+    and measured values not compared (:func:`_not_compared_notes`). ``results`` are the run's steps, the
+    skipped ones included: a measured time between two read steps across a skipped one is not compared."""
+    probes, lines, measured = sample_tables(results, options)
     if measured is None:
         return probes, lines, None, None, []
     from ..analysis.probes import validation_summary, validation_table
@@ -277,6 +340,7 @@ def run_sample_tables(done, options, numbered: bool = False):
     times, simulated, steps = measured
     rows = tuple((x, y, 0.0 if np.isnan(z) else z, *rest) for x, y, z, *rest in options.measured)  # z not given: 0
     notes = []
+    outside = np.zeros(0)
     timed = np.array([np.isfinite(entry[4]) for entry in rows])
     if timed.any() and numbered:
         rows = tuple(entry for entry, t in zip(rows, timed) if not t)
@@ -288,11 +352,13 @@ def run_sample_tables(done, options, numbered: bool = False):
         from ..analysis._grid_convergence import covered_span, span_reach
 
         first, last = covered_span(times, span_reach(times))
-        outside = (t < first) | (t > last)
-        if outside.any():
-            notes.append((PhasegaugeWarning, f"{int(outside.sum())} of {t.size} measured value(s) with times lie "
+        outside = t[(t < first) | (t > last)]
+        if outside.size:
+            notes.append((PhasegaugeWarning, f"{outside.size} of {t.size} measured value(s) with times lie "
                           f"outside the steps' times ({times.min():.6g} to {times.max():.6g}; measured "
-                          f"{t[outside].min():.6g} to {t[outside].max():.6g}): their simulated values are empty "
+                          f"{outside.min():.6g} to {outside.max():.6g}): their simulated values are empty "
                           "(times in other units, or steps left out?)", ""))
-    table = validation_table(rows, times, simulated, steps=steps)
+    gaps = _gaps(results, steps)
+    table = validation_table(rows, times, simulated, steps=steps, gaps=gaps)
+    notes += _not_compared_notes(table, times, steps, gaps, outside)
     return probes, lines, table, validation_summary(table), notes

@@ -338,7 +338,7 @@ def assemble(series, results: list, options, *, notes=(), feed: TrackingFeed | N
     # steps numbered 0, 1, 2 ... (no times stored, as read): no rate per unit time is integrated over them,
     # no measured time set against them, no diffusivity ratio taken
     numbered = any(getattr(r, "time_origin", "") == "index" for r in done)
-    probes, lines, validation, validation_summary, sample_notes = run_sample_tables(done, options, numbered)
+    probes, lines, validation, validation_summary, sample_notes = run_sample_tables(results, options, numbered)
     records += sample_notes
     summary = collapse_warnings(records)
     for category, text in summary:
