@@ -165,3 +165,17 @@ def test_the_not_compared_warnings_stay_whole_with_many_values():
     for _, text, _ in notes:
         assert len(text) <= WHAT_LIMIT and " more" in text, text
     assert notes[-1][1].endswith("see that step's warnings")
+
+
+def test_a_measured_time_a_hair_off_a_written_time_is_that_steps():
+    # a solver writes t = 0.333333 (six digits), the experiment's log 0.3333333: the step's time, not a time between
+    # steps 1 and 3 across the damaged step 2 (not compared); a time off by a share of the interval above 1e-6
+    # (our threshold) stays between steps [analytic: the field linear in time]
+    times = np.array([0.0, 0.333333, 1.0])
+    simulated = np.array([[0.0], [0.333333], [1.0]])
+    measured = [(0.5, 0.5, 0.0, 0.3333333, 0.3333333, 0.01), (0.5, 0.5, 0.0, 0.34, 0.34, 0.01)]
+    gaps = np.array([False, True])  # a damaged step between 0.333333 and 1.0
+    table = validation_table(measured, times, np.repeat(simulated, 2, axis=1), gaps=gaps)
+    first, second = table.iloc[0], table.iloc[1]
+    assert first["step"] == 1 and first["simulated"] == pytest.approx(0.333333, abs=1e-15)
+    assert np.isnan(second["simulated"])  # 0.34 lies between steps 1 and 2 across the damaged one

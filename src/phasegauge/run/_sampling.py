@@ -276,7 +276,7 @@ def _gaps(results, steps) -> np.ndarray:
 
 def _named(rows, limit=3) -> str:
     """Measured values as ``(x, y, z) at t``, the first ``limit`` of them, then how many more."""
-    text = ", ".join(f"({x:.6g}, {y:.6g}, {z:.6g})" + (f" at t = {t:.6g}" if np.isfinite(t) else "")
+    text = ", ".join(f"({x:.6g}, {y:.6g}, {z:.6g})" + (f" at t = {t:.9g}" if np.isfinite(t) else "")
                      for x, y, z, t in rows[:limit])
     return text + (f" and {len(rows) - limit} more" if len(rows) > limit else "")
 
