@@ -188,7 +188,7 @@ def test_a_turned_slab_far_from_the_origin_and_with_unused_points_is_found():
 
 @pytest.mark.parametrize("offset", [0.0, 10.0, 100.0, 1000.0])
 def test_a_turned_slab_with_single_precision_points_is_found(tmp_path, offset):
-    """A slab turned by 30 degrees whose points are stored as float32 (the ParaView/VTK default): at
+    """A slab turned by 30 degrees whose points are stored as float32 (as VTK writers store them by default): at
     |x| = 100 a float32 number is placed only to 7.6e-6 (numpy's spacing), above 1e-6 of the extent, and
     the slab went unnoticed (measured as 3D with no warning) from offset 100 on. Analytic: the turned z
     axis and the extrusion's depth, to the float32 rounding; a turned slab two cells thick is still none."""

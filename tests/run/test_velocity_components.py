@@ -70,7 +70,7 @@ def test_velocity_components_on_cells_give_every_figure_of_the_vector(tmp_path):
 
 
 def test_three_velocity_components_on_points_of_a_3d_mesh(tmp_path):
-    # a box of tetrahedra, flow along z written on the points as Ux, Uy, Uz (an OpenFOAM-like naming)
+    # a box of tetrahedra, flow along z written on the points as Ux, Uy, Uz (a common naming of components)
     mesh = grid_mesh((4, 4, N), kind="tetra")
     names = ("Ux", "Uy", "Uz")
     vector = measure(_series(tmp_path / "vector", mesh, 2, None, on_points=True), "c", velocity="U",
