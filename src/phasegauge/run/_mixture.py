@@ -30,11 +30,14 @@ MIXTURE_COLUMNS = ("temperature", "mean_composition", "bulk_composition_lean", "
 SOLUTE_COLUMNS = ("solute_lean", "solute_rich", "partition_coefficient", "extraction_progress",
                   "lever_rule_residual")
 #: bulks apart by more than this share of the binodal's gap and :data:`SEPARATION_SPREADS` times the sum
-#: of their spreads are separated under half its gap too; bulks closer than it are mixed (see
-#: :func:`_separated` and :func:`mixture_findings`; our rule, not a published one)
+#: of their spreads are separated; bulks closer than it are mixed (see :func:`_separated` and
+#: :func:`mixture_findings`; our rule, not a published one)
 SEPARATION_SHARE = 0.25
-#: see :data:`SEPARATION_SHARE` (spreads: half interquartile ranges)
-SEPARATION_SPREADS = 4.0
+#: bulks of no flat plateau apart by no more than this many times the sum of their spreads (half
+#: interquartile ranges) are a mixed field's noise, whatever the binodal (our threshold: noise and quench
+#: noise read 1.7 to 12, 27.5 with 1 and 2 cells a side; white noise and Cahn-Hilliard runs above the
+#: critical temperature 2.4 to 6.2; a tanh profile's bulks 134 or more)
+SEPARATION_SPREADS = 40.0
 #: bulks on flat plateaus (:func:`_flat_sides`) apart by more than this many times the sum of their
 #: spreads are separated whatever the binodal's gap (our threshold: a tanh profile's tail beyond one
 #: width is 0.35 % of the jump, so its plateaus read 140 or more, and 134 to 818 in Cahn-Hilliard runs;
@@ -246,12 +249,14 @@ def _flat_sides(mesh, x, distance, width, found: dict, options) -> tuple:
 
 
 def _separated(bulk: dict, flat_sides, binodal_lean: float, binodal_rich: float, options) -> bool:
-    """Whether both bulks were measured and lie apart: by more than the tolerance, and either by half the
-    binodal's gap (where the model has one), or by a quarter of it and :data:`SEPARATION_SPREADS` times
-    the sum of their spreads, or as flat plateaus (``flat_sides``: whether the lean and the rich side are,
+    """Whether both bulks were measured and lie apart: by more than the tolerance, and either by
+    :data:`SEPARATION_SPREADS` times the sum of their spreads and, where the model has a binodal, a
+    quarter of its gap, or as flat plateaus (``flat_sides``: whether the lean and the rich side are,
     :func:`_flat_sides`) by :data:`PLATEAU_SPREADS` times the sum of their spreads whatever
     the gap. A quench's noise sets bulks
-    a few hundredths apart on the two sides of its contour, each about as wide as that; the peaks of an
+    a few hundredths apart on the two sides of its contour, each about as wide as that, near a critical
+    point or above it as far apart as half the binodal's gap or more than the tolerance (noise is no
+    separation, whatever the gap); the peaks of an
     early spinodal pattern are narrow but lie a few hundredths apart too (neither is a separation); two
     flat plateaus at 0.3 and 0.7 are apart by far more than their spreads (a separation whose bulks have
     not reached the binodal) though under half its gap, and so are the plateaus of a mixture separated at
@@ -259,14 +264,14 @@ def _separated(bulk: dict, flat_sides, binodal_lean: float, binodal_rich: float,
     lean, rich = bulk["bulk_composition_lean"], bulk["bulk_composition_rich"]
     if not (np.isfinite(lean) and np.isfinite(rich) and rich - lean > options.equilibrium_tolerance):
         return False
-    if not (np.isfinite(binodal_lean) and np.isfinite(binodal_rich)):
-        return True
     apart = rich - lean
     spreads = bulk["bulk_spread_lean"] + bulk["bulk_spread_rich"]
-    gap = binodal_rich - binodal_lean
     flat = all(flat_sides) and apart > PLATEAU_SPREADS * spreads
-    return bool(apart > 0.5 * gap or (apart > SEPARATION_SHARE * gap and apart > SEPARATION_SPREADS * spreads)
-                or flat)
+    if not (flat or apart > SEPARATION_SPREADS * spreads):  # a mixed field's noise
+        return False
+    if not (np.isfinite(binodal_lean) and np.isfinite(binodal_rich)):
+        return True
+    return bool(flat or apart > SEPARATION_SHARE * (binodal_rich - binodal_lean))
 
 
 def _drop_phase(mesh, ind, droplets, options):
@@ -417,24 +422,31 @@ def mixture_findings(steps, options) -> list:
     if outside.any():
         found.append(_level_finding(steps, options, outside))
     lost = outside & ~(size > 0)  # no contour, the level outside the binodal pair: that finding says why
-    # both bulks measured count as mixing where they agree (within a quarter of the gap: a quench's
-    # noise), not where they lie apart without counting as separated (plateaus too small to judge)
-    mixed_seen = ((np.isfinite(lean) & np.isfinite(rich) & (rich - lean <= SEPARATION_SHARE * gap)) | (span < 0.5 * gap)
-                  | (~(size > 0) & np.isnan(span) & ~lost))
-    unknown = (state == "unstable") & ~separated & ~mixed_seen & ~lost
+    # both bulks measured count as mixing where they agree (within a quarter of the gap, or apart by no more
+    # than noise: SEPARATION_SPREADS times their spreads), not where they lie apart without counting as
+    # separated (plateaus too small to judge)
+    spreads = (steps["bulk_spread_lean"].to_numpy(dtype=float) + steps["bulk_spread_rich"].to_numpy(dtype=float))
+    both = np.isfinite(lean) & np.isfinite(rich)
+    mixed_seen = ((both & ((rich - lean <= SEPARATION_SHARE * gap) | (rich - lean <= SEPARATION_SPREADS * spreads)))
+                  | (span < 0.5 * gap) | (~(size > 0) & np.isnan(span) & ~lost))
+    # an interface with a bulk missing on a side is not judged whatever the mean composition's state, where
+    # the model has a binodal (drops too small to hold a bulk at a metastable one are no less separated)
+    unknown = ((state == "unstable") | ((size > 0) & ~both & np.isfinite(gap))) & ~separated & ~mixed_seen & ~lost
     if unknown.any():
         times = _times(steps, unknown)
         still = bool(unknown[last])
+        # (the span is not known without the conservation analysis, the gap without a binodal)
         spanning = (", with compositions spanning half the binodal's gap or more"
-                    if np.isfinite(span[unknown]).all() else "")  # (not known without the conservation analysis)
-        both = bool((np.isfinite(lean) & np.isfinite(rich))[unknown].all())
+                    if np.isfinite(span[unknown] + gap[unknown]).all() else "")
+        inside = " inside the spinodal" if (state[unknown] == "unstable").all() else ""
         what = ("bulk compositions apart by more than a quarter of the binodal's gap but neither on flat plateaus "
-                "nor far apart against their spreads" if both else
+                "nor far apart against their spreads" if both[unknown].all() else
                 f"no bulk beyond {options.bulk_widths:g} interface width{'s' if options.bulk_widths != 1 else ''} "
                 "on one side or both")
-        text = (f"{what} inside the spinodal ({int(unknown.sum())} step(s), t = {times[0]:g} to "
+        text = (f"{what}{inside} ({int(unknown.sum())} step(s), t = {times[0]:g} to "
                 f"{times[-1]:g}){spanning}, so whether the phases separated is not judged there: a bulk that has "
-                "not reached a plateau widens the measured interface (see interface_width) until no bulk is left"
+                "not reached a plateau widens the measured interface (see interface_width) until no bulk is left "
+                "(a smaller --bulk-widths measures the bulk of drops a few widths across)"
                 + ("" if still else _afterwards(separated, unknown)))
         found.append(Finding("bulk_not_measured", "warning" if still else "note", text,
                              {"steps": int(unknown.sum()), "first_time": times[0], "last_time": times[-1],
