@@ -14,6 +14,8 @@ Porter, D. A. and Easterling, K. E. (1992). Phase Transformations in Metals and 
 
 from __future__ import annotations
 
+import math
+
 import numpy as np
 
 from ..errors import OptionError
@@ -27,7 +29,7 @@ from ._labelling import _normalize_periodic
 from ._signed_distance import _ContourGeometry, _maybe_near_cells, _search_sets, _signed_distance
 from ._sums import dot
 
-__all__ = ["interface_distance", "bulk_compositions", "mixture_state", "solute_distribution", "equilibrium_gap",
+__all__ = ["interface_distance", "bulk_compositions", "between_class_share", "mixture_state", "solute_distribution", "equilibrium_gap",
            "gibbs_thomson_shift", "MIXTURE_STATES"]
 
 MIXTURE_STATES = ("stable", "metastable", "unstable")
@@ -417,3 +419,29 @@ def gibbs_thomson_shift(model, temperature, radius, *, capillary_length, dimensi
             curvature = float(_stability(model, np.array([x]), np.array([float(temperature)]))[0]) / (x * (1 - x))
         shifts.append(delta / curvature)
     return shifts[0], shifts[1]
+
+
+def between_class_share(x: np.ndarray, weights: np.ndarray, bins: int = 256) -> float:
+    """The share of the measure-weighted variance of ``x`` between the two classes of Otsu's threshold (the
+    threshold that makes it largest, over a histogram of ``bins`` bins): 1 for a field of two values, about
+    2/pi for a Gaussian scatter (split at its mean); NaN for a constant field.
+
+    References
+    ----------
+    Otsu, N. (1979), "A threshold selection method from gray-level histograms", IEEE Trans. Systems, Man,
+    and Cybernetics 9(1), 62-66.
+    """
+    hist, edges = np.histogram(x, bins=bins, weights=weights)
+    centres = 0.5 * (edges[1:] + edges[:-1])
+    total = float(hist.sum())
+    if not total > 0:
+        return math.nan
+    below = np.cumsum(hist)[:-1]
+    moment = np.cumsum(hist * centres)[:-1]
+    mean = float(np.dot(hist, centres)) / total
+    variance = float(np.dot(hist, (centres - mean) ** 2)) / total
+    above = total - below
+    with np.errstate(invalid="ignore", divide="ignore"):
+        between = below * above * (moment / below - (mean * total - moment) / above) ** 2 / total ** 2
+    best = np.nanmax(np.where((below > 0) & (above > 0), between, np.nan)) if bins > 1 else math.nan
+    return float(best / variance) if variance > 0 and np.isfinite(best) else math.nan

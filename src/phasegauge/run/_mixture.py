@@ -16,6 +16,7 @@ import warnings
 
 import numpy as np
 
+from ..analysis._phase_compositions import between_class_share
 from ..errors import OptionError, PhasegaugeWarning
 from ..model._numbers import finite_number
 
@@ -43,6 +44,12 @@ SEPARATION_SPREADS = 40.0
 #: width is 0.35 % of the jump, so its plateaus read 140 or more, and 134 to 818 in Cahn-Hilliard runs;
 #: the peaks of Gaussian-smoothed noise read 1.7 to 12 with 3 cells or more a side, 27.5 with 1 and 2)
 PLATEAU_SPREADS = 50.0
+#: a field whose measure-weighted histogram splits with at least this share of its variance between the two
+#: classes (Otsu's criterion at its best threshold) is two phases, though each bulk carries cell noise that
+#: its spreads read (our threshold: a drop at the binodal with noise of 0.5-3 % of the jump reads 0.96-0.97,
+#: Cahn-Hilliard runs once separated 0.84-0.96; white noise and quench noise before interfaces form 0.61-0.75,
+#: a Gaussian's 2/pi = 0.64)
+BIMODAL_SHARE = 0.8
 #: the fewest bulk cells on a side, and cells judged for its flatness, that make a plateau (our
 #: threshold: the median and quartiles of a handful of cells say nothing of a plateau)
 PLATEAU_CELLS = 10
@@ -204,7 +211,8 @@ def mixture_step(step, mesh, ind, contour, metrics: dict, options, droplets=None
         flat_sides = _flat_sides(mesh, x, distance, width, found, options)
     out.update(bulk)
     lean, rich = bulk["bulk_composition_lean"], bulk["bulk_composition_rich"]
-    out["separated"] = separated = _separated(bulk, flat_sides, out["binodal_lean"], out["binodal_rich"], options)
+    out["separated"] = separated = _separated(bulk, flat_sides, out["binodal_lean"], out["binodal_rich"], options,
+                                              lambda: between_class_share(x_finite, weights))
     out["equilibrium_gap"] = (thermo.equilibrium_gap(lean, rich, out["binodal_lean"], out["binodal_rich"])
                               if separated else math.nan)
     table, drop = _drop_phase(mesh, ind, droplets, options)
@@ -248,7 +256,8 @@ def _flat_sides(mesh, x, distance, width, found: dict, options) -> tuple:
     return tuple(out)
 
 
-def _separated(bulk: dict, flat_sides, binodal_lean: float, binodal_rich: float, options) -> bool:
+def _separated(bulk: dict, flat_sides, binodal_lean: float, binodal_rich: float, options,
+               bimodal=lambda: math.nan) -> bool:
     """Whether both bulks were measured and lie apart: by more than the tolerance, and either by
     :data:`SEPARATION_SPREADS` times the sum of their spreads and, where the model has a binodal, a
     quarter of its gap, or as flat plateaus (``flat_sides``: whether the lean and the rich side are,
@@ -267,7 +276,9 @@ def _separated(bulk: dict, flat_sides, binodal_lean: float, binodal_rich: float,
     apart = rich - lean
     spreads = bulk["bulk_spread_lean"] + bulk["bulk_spread_rich"]
     flat = all(flat_sides) and apart > PLATEAU_SPREADS * spreads
-    if not (flat or apart > SEPARATION_SPREADS * spreads):  # a mixed field's noise
+    # a mixed field's noise, unless the field is two phases whose bulks carry cell noise (``bimodal``: the
+    # field's :func:`between_class_share`, asked for only here)
+    if not (flat or apart > SEPARATION_SPREADS * spreads or bimodal() >= BIMODAL_SHARE):
         return False
     if not (np.isfinite(binodal_lean) and np.isfinite(binodal_rich)):
         return True
