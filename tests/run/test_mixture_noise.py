@@ -142,3 +142,20 @@ def test_a_drop_at_the_binodal_with_cell_noise_stays_separated(tmp_path):
     res = measure(path, "x", model=NrtlModel(**PAIR), temperature=t)
     assert res.steps["separated"].all()
     assert "still_mixed" not in " ".join(_kinds(res))
+
+
+def test_a_drop_dissolving_into_a_stable_mixture_is_not_left_unjudged(tmp_path):
+    # a rich drop at the binodal's rich side (scipy fsolve, Renon & Prausnitz 1968, 298.15 K) shrinking in a
+    # matrix at x = 0.03, under the lean binodal: the mean composition is one stable phase, the drop dissolves
+    # as the model says; its last steps hold no bulk inside, and were warned "not judged"
+    t = 298.15
+    lean, rich = _coexisting(PAIR, t, (0.12, 0.88))
+    assert 0.03 < lean
+    mesh = grid_mesh((N, N), kind="quad")
+    r = np.hypot(*(mesh.cell_centroids[:, :2] - 0.5).T)
+    path = write_listing(tmp_path, [(float(k), f"s_{k}.vtu", mesh,
+                                     {"x": 0.03 + (rich - 0.03) * 0.5 * (1 + np.tanh((radius - r) / EPS))})
+                                    for k, radius in enumerate((0.25, 0.15, 0.08, 0.05, 0.03))])
+    res = measure(path, "x", model=NrtlModel(**PAIR), temperature=t)
+    assert (res.steps["mixture_state"].iloc[1:] == "stable").all()  # (the first, the largest drop: metastable)
+    assert "bulk_not_measured" not in _kinds(res)

@@ -440,9 +440,11 @@ def mixture_findings(steps, options) -> list:
     both = np.isfinite(lean) & np.isfinite(rich)
     mixed_seen = ((both & ((rich - lean <= SEPARATION_SHARE * gap) | (rich - lean <= SEPARATION_SPREADS * spreads)))
                   | (span < 0.5 * gap) | (~(size > 0) & np.isnan(span) & ~lost))
-    # an interface with a bulk missing on a side is not judged whatever the mean composition's state, where
-    # the model has a binodal (drops too small to hold a bulk at a metastable one are no less separated)
-    unknown = ((state == "unstable") | ((size > 0) & ~both & np.isfinite(gap))) & ~separated & ~mixed_seen & ~lost
+    # an interface with a bulk missing on a side is not judged where the mean composition is not one stable
+    # phase and the model has a binodal (drops too small to hold a bulk at a metastable one are no less
+    # separated; a drop dissolving into a stable mixture is what the model says)
+    unknown = (((state == "unstable") | ((size > 0) & ~both & np.isfinite(gap) & (state != "stable")))
+               & ~separated & ~mixed_seen & ~lost)
     if unknown.any():
         times = _times(steps, unknown)
         still = bool(unknown[last])
