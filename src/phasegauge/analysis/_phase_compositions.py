@@ -29,8 +29,8 @@ from ._labelling import _normalize_periodic
 from ._signed_distance import _ContourGeometry, _maybe_near_cells, _search_sets, _signed_distance
 from ._sums import dot
 
-__all__ = ["interface_distance", "bulk_compositions", "between_class_share", "mixture_state", "solute_distribution", "equilibrium_gap",
-           "gibbs_thomson_shift", "MIXTURE_STATES"]
+__all__ = ["interface_distance", "bulk_compositions", "between_class_share", "mixture_state", "solute_distribution",
+           "equilibrium_gap", "gibbs_thomson_shift", "MIXTURE_STATES"]
 
 MIXTURE_STATES = ("stable", "metastable", "unstable")
 

@@ -69,8 +69,9 @@ def _added_centre_values(mesh: Mesh, view, phi: np.ndarray, good: np.ndarray) ->
     ``(points, values)``, ``(None, None)`` where none. The centre inside a cell (a point every piece of one
     whole cell holds, and no other cell) takes that cell's phi, the fit through its one sample; a face centre
     between cells their mean weighted by the inverse distance to their centroids (the fit through their two
-    samples, on the line between the centroids: :func:`_between_cells`), not the fit two rings out, whose wider stencil adds more curvature; a face centre on a wall
-    (one cell) takes the fits of the points of the file."""
+    samples, on the line between the centroids: :func:`_between_cells`), not the fit two rings out, whose
+    wider stencil adds more curvature; a face centre on a wall (one cell) takes the fits of the points of the
+    file."""
     from .polyhedra import SPLIT_CENTRES
 
     added = mesh.memo(SPLIT_CENTRES, lambda: None, keep=False)

@@ -34,8 +34,9 @@ def plot_campaign(table, *, parameter: str = "parameter", unit: str = "", sectio
     are all ``index``: they store no times). ``D_num`` carries its standard error as an
     error bar, hollow where the run's audit finds it not distinguishable from 0 (``D_num_significant``
     False). The mixing-length panel draws each run by its ``mixing_length_status``: a line through the
-    lengths reached (broken at a run between them that did not reach the target); a length met at the first section (``upper_bound``) as a bound, a downward triangle
-    at that section's distance, not joined to the line; and with ``sections`` (the runs measured
+    lengths reached (broken at a run between them that did not reach the target); a length met at the first
+    section (``upper_bound``) as a bound, a downward triangle at that section's distance, not joined to the
+    line; and with ``sections`` (the runs measured
     cross-sections) a run that did not reach the target within the domain (``not_reached``) as a hollow
     upward triangle at the top of the panel, a length beyond it. A run whose mixing length is undefined
     (its inflow refused) is drawn at no value: the legend names it. A table without the status column
