@@ -16,6 +16,7 @@ from phasegauge.meshgen import grid_mesh, to_meshio
 from phasegauge.run._bulk_findings import MAX_SHIFT
 from phasegauge.run.assemble import findings
 from phasegauge.run.options import MeasureOptions
+from test_findings_plateaus import _shifted
 
 
 def _drop(folder, n, width, shift):
@@ -77,13 +78,6 @@ def test_both_bulks_shifted_alike_by_little_are_noted(tmp_path, delta):
     assert _checks(result)["indicator_bounds"]["passed_as"] == "bulk off 0 and 1 (note)"
 
 
-def _tables(low, high):
-    """c reaches a little beyond a plateau off its well (within the plateaus' range), and to a plateau within [0, 1]."""
-    return pd.DataFrame({"step": [0], "time": [0.0], "bulk_c_low": [low], "bulk_c_high": [high],
-                         "c_min": [low - 1e-4 if low < 0 else 0.0], "c_max": [high + 1e-4 if high > 1 else 1.0],
-                         "overshoot_volume": [1e-3], "domain_volume": [1.0]})
-
-
 @pytest.mark.parametrize("low, high, why", [
     (0.002, 1.009, "one moved over 3 times the other"),  # more than SHIFT_FACTOR (3, our threshold)
     (0.006, 1.009, None),  # 1.5 times apart
@@ -94,7 +88,7 @@ def _tables(low, high):
 def test_shifts_not_alike_or_beyond_the_cap_are_overshoot(low, high, why):
     """Without a free energy: the two shifts of one sign, within SHIFT_FACTOR of each other and at most
     MAX_SHIFT (0.03 of the gap, our threshold) each; else the overshoot warning says which."""
-    found = {f.kind: f for f in findings(_tables(low, high), pd.DataFrame(), {"interface_kind": "diffuse"},
+    found = {f.kind: f for f in findings(_shifted(low, high), pd.DataFrame(), {"interface_kind": "diffuse"},
                                          MeasureOptions(field="c"), [], dimension=2)}
     if why is None:
         assert "bulk_plateaus" in found and "indicator_overshoot" not in found

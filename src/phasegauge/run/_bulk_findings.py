@@ -83,9 +83,9 @@ def _not_shifted(low: float, high: float, c_min: float, c_max: float, expected, 
         return None
     shifts = (low, high - 1.0)
     largest, smallest = max(abs(s) for s in shifts), min(abs(s) for s in shifts)
-    bulk = f"{at}the bulk sits at c = {low:.4g} and {high:.4g}: not a Gibbs-Thomson shift, "
     if largest == 0.0:
         return None
+    bulk = f"{at}the bulk sits at c = {low:.4g} and {high:.4g}: not a Gibbs-Thomson shift, "
     if shifts[0] * shifts[1] == 0:
         return bulk + "which moves both bulks, and one sits on its well (or shows no plateau)"
     if shifts[0] * shifts[1] < 0:

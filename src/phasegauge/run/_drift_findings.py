@@ -165,7 +165,7 @@ def _open_findings(steps, change, reference, tolerance, against, Finding, on_poi
     outflow = np.nan_to_num(steps["phase_volume_outflow"].to_numpy(dtype=float))
     left = change + outflow / reference
     parts = {name: part / reference for name, part in outflow_allowance_parts(steps).items()}
-    slack = parts["jumps"] + parts["smooth"] + parts["unknown"]
+    slack = sum(parts.values())
     # what the cells left out for non-finite values could hold is not judged, as in a closed domain
     below, above = _left_out_share(steps, reference)
     beyond = np.maximum(np.maximum(left - above, -left - below), 0.0) - slack
@@ -230,8 +230,8 @@ def _allowance_reason(parts: dict, on_points: bool) -> str:
                 "the rate's second differences (the outputs resolve it; the error falls with the square of the "
                 "output interval): outputs twice as close in time would tell")
     return ("integrating the boundary flow between outputs may miss where the rate jumps from one output to the "
-            "next (a change more than 3 times the next interval's, or an alternating one): outputs closer in time "
-            "would tell")
+            f"next (a change more than {JUMP_RATIO:g} times the next interval's, or an alternating one): outputs "
+            "closer in time would tell")
 
 
 _OPEN = ("the domain has inflow or outflow boundaries: phase-volume drift includes what crossed them "

@@ -17,6 +17,7 @@ from __future__ import annotations
 import numpy as np
 
 from ..analysis import _tracking
+from ..model.axes import AXIS_INDEX
 
 __all__ = ["tracking_findings", "JUMP_FACTOR", "SAME_VOLUME", "BACKWARDS"]
 
@@ -248,7 +249,7 @@ def _backwards(droplets, events, edge: set, bounds, periodic) -> list:
     if bounds is not None:
         for k, a in enumerate(names):
             if a in periodic:
-                period = float(bounds[1][ord(a) - ord("x")] - bounds[0][ord(a) - ord("x")])
+                period = float(bounds[1][AXIS_INDEX[a]] - bounds[0][AXIS_INDEX[a]])
                 move[:, k] -= period * np.round(move[:, k] / period) if period > 0 else 0.0
     expected = 0.5 * np.stack([first[f"velocity_{a}"].to_numpy() + second[f"velocity_{a}"].to_numpy()
                                for a in names], 1) * dt[:, None]
