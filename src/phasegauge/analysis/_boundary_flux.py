@@ -113,12 +113,14 @@ def _table_slots(table: np.ndarray, owners: np.ndarray):
         yield has, np.where(has, rows[:, k], owners)
 
 
-def _wall_test_cells(mesh, u: np.ndarray, owners: np.ndarray) -> tuple:
-    """The cells the wall test reads: (centroids, velocities, the owners' cells, neighbour slots).
+def _whole_cell_stencil(mesh, u: np.ndarray, owners: np.ndarray) -> tuple:
+    """The cells a least-squares gradient at the boundary reads: (centroids, the cell values ``u``, the
+    owners' cells, neighbour slots).
 
     On a mesh whose cells a reader split (:attr:`Mesh.cell_parents`), the whole cells: a boundary
-    piece's face neighbours are mostly pieces of its own cell, with the cell's velocity, and the
-    fall of u.n to zero at a wall would never be seen (a closed box of polyhedra read open).
+    piece's face neighbours are mostly pieces of its own cell, with the cell's value, and the
+    fall of u.n to zero at a wall would never be seen (a closed box of polyhedra read open), nor
+    how far a cell's c is from c at its faces (the bound would shrink).
     """
     if mesh.cell_parents is None:
         return mesh.cell_centroids, u, owners, _neighbour_slots(mesh, owners)
@@ -133,11 +135,11 @@ def _open_cell_faces(mesh, u, owners, unit, centre, threshold) -> tuple[np.ndarr
     u.n (with the piece's normal) is reconstructed linearly to the face centre from the cell and
     its face neighbours (least-squares gradient); at a wall it falls to zero, or past it, towards
     the face, through an inlet or outlet it keeps its value. On a split mesh the cell and its
-    neighbours are whole cells (:func:`_wall_test_cells`); the u.n returned is the piece's own.
+    neighbours are whole cells (:func:`_whole_cell_stencil`); the u.n returned is the piece's own.
     """
     un_own = np.einsum("nd,nd->n", u[owners], unit)
     un_own = np.where(np.isfinite(un_own), un_own, 0.0)
-    X, u, owners, slots = _wall_test_cells(mesh, u, owners)
+    X, u, owners, slots = _whole_cell_stencil(mesh, u, owners)
     un = np.einsum("nd,nd->n", u[owners], unit)
     un = np.where(np.isfinite(un), un, 0.0)
     dim = X.shape[1]
@@ -358,13 +360,14 @@ def _wall_corners_open(un, pieces, face, is_open, closed) -> np.ndarray:
 def _face_offset(mesh, c_values, owners, centre) -> np.ndarray:
     """|grad c . (x_face - x_cell)| per boundary piece: how far the owner cell's c, which the piece takes,
     may be from c at the face centre (linear reconstruction with the least-squares gradient of c over the
-    cell's face neighbours, as the wall test builds it for u.n); 0 where c or the gradient is not finite."""
-    X = mesh.cell_centroids
+    cell's face neighbours, as the wall test builds it for u.n; whole cells on a split mesh); 0 where c or
+    the gradient is not finite."""
+    X, c_values, owners, slots = _whole_cell_stencil(mesh, c_values, owners)
     dim = X.shape[1]
     own = c_values[owners]
     A = np.zeros((len(owners), dim, dim))
     b = np.zeros((len(owners), dim))
-    for has, nb in _neighbour_slots(mesh, owners):
+    for has, nb in slots:
         d = X[nb] - X[owners]
         dc = c_values[nb] - own
         w = (has & np.isfinite(dc)).astype(np.float64)
