@@ -24,13 +24,16 @@ Runs, one configuration at a time in fresh child processes (the jobs of ``bench_
   only, beside the same baseline.
 
 and prints one markdown table: wall and CPU seconds of the baseline and of ``measure``, their
-ratio, the first step, the later steps' median, microseconds per cell-step, peak memory over one
-step's mesh and fields (the cells as hexahedra or tetrahedra in XDMF: points, int64 corners, one field),
-peak memory over one step as the series' own file holds it (for the polyhedra their face streams
-too: 4.1x the hexahedra's bytes, 6x where every face is two triangles), the peak over one step's mesh
-and fields of a process that ran ``measure`` once before on a small series (the XDMF kinds: without
-what a first run loads once, about 20 MB), and beside them the
-previous round's ratio, per cell-step time and peak from ``previous_round.json`` (figures copied from ``RESULTS.md``, each with its section).
+ratio, the seconds of importing the modules a ``measure`` run imports (done before the time and
+memory reference points since the thirty-second round, as the baseline has pyvista imported; earlier
+rounds' ``measure`` seconds and peaks hold them), the first step, the later steps' median,
+microseconds per cell-step, peak memory over one step's mesh and fields (the cells as hexahedra or
+tetrahedra in XDMF: points, int64 corners, one field), peak memory over one step as the series' own
+file holds it (for the polyhedra their face streams too: 4.1x the hexahedra's bytes, 6x where every
+face is two triangles), the peak over one step's mesh and fields of a process that ran ``measure``
+once before on a small series (the XDMF kinds: without what a first run loads once beyond its
+modules), and beside them the previous round's ratio, per cell-step time and peak from
+``previous_round.json`` (figures copied from ``RESULTS.md``, each with its section).
 
 Usage::
 
@@ -65,7 +68,7 @@ KINDS = ("tetra", "grid", "hexahedron", "hexahedron-cells", "polyhedron", "polyh
 #: the folder of ``bench_polyhedra.py`` each polyhedral kind reads
 POLYHEDRAL_SERIES = {"polyhedron": "polyhedra", "polyhedron-mixed": "split", "polyhedron-band": "band",
                      "polyhedron-split": "triangulated", "polyhedron-raw": "raw"}
-COLUMNS = ("kind", "cells", "baseline s (cpu)", "measure s (cpu)", "measure / baseline wall (cpu)",
+COLUMNS = ("kind", "cells", "baseline s (cpu)", "measure s (cpu)", "measure / baseline wall (cpu)", "imports s",
            "first step s", "later steps s", "us per cell-step", "peak / step bytes", "peak / the file's step bytes",
            "peak after a small run / step bytes",
            "previous: measure / baseline", "previous: us per cell-step", "previous: peak / step bytes")
@@ -110,6 +113,7 @@ def _row(kind, cells, base, ser, peak_x, peak_x_file) -> dict:
     return {"kind": kind, "cells": int(cells),
             "baseline_s": base["seconds"], "baseline_cpu": base.get("cpu_seconds", float("nan")),
             "measure_s": ser["seconds"], "measure_cpu": ser.get("cpu_seconds", float("nan")),
+            "import_s": ser.get("import_seconds", float("nan")),
             "first_step_s": ser["per_step"][0], "later_step_s": later,
             "us_per_cell_step": 1e6 * later / cells, "peak_x_step": peak_x, "peak_x_file": peak_x_file}
 
@@ -122,6 +126,7 @@ def table(rows, previous) -> str:
         cells = [r["kind"], f"{r['cells']:,}".replace(",", " "),
                  f"{r['baseline_s']:.2f} ({r['baseline_cpu']:.2f})", f"{r['measure_s']:.2f} ({r['measure_cpu']:.2f})",
                  f"{r['measure_s'] / r['baseline_s']:.2f} ({r['measure_cpu'] / r['baseline_cpu']:.2f})",
+                 f"{r.get('import_s', float('nan')):.2f}",
                  f"{r['first_step_s']:.2f}", f"{r['later_step_s']:.3f}", f"{r['us_per_cell_step']:.2f}",
                  f"{r['peak_x_step']:.1f}", f"{r.get('peak_x_file', float('nan')):.1f}",
                  f"{r['peak_x_step_warm']:.1f}" if "peak_x_step_warm" in r else "-"]

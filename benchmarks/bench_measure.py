@@ -21,7 +21,10 @@ file cache):
   and its area, band volume by ``threshold`` (interface width), ``threshold`` +
   ``connectivity`` with per-droplet volume and centroid, phase volume and moments by
   ``integrate_data``, 20 ``slice`` + ``integrate_data`` cross sections along x;
-* ``serial``: ``phasegauge.measure(path, 'c', section_axis='x')`` in one process;
+* ``serial``: ``phasegauge.measure(path, 'c', section_axis='x')`` in one process, every module a
+  measure run imports imported before the time and memory reference points (``import_run_code``),
+  as the baseline's job has pyvista imported: their seconds are reported beside
+  (``import_seconds``), a run's fixed cost, not the steps' work;
 * ``workers2``: the same with ``workers=2``;
 * ``serial-warm`` (asked for by name; ``bench_kinds.py`` runs it): ``serial`` after one untimed run of
   ``measure`` on a small series of the same kind (about 1000 cells, two steps) in the same process, before
@@ -224,6 +227,41 @@ def _cpu_seconds() -> float:
     return own.ru_utime + own.ru_stime + kids.ru_utime + kids.ru_stime
 
 
+def import_run_code(small_series: str) -> float:
+    """Import every module a ``measure`` run imports, as the baseline's job has pyvista imported: code, not
+    the run's data or work, so before the time and memory reference points. Which modules: those of a
+    throwaway process that ran ``measure`` on a small series of the same kind, the one the expression
+    ``small_series`` builds there (in the temporary ``folder``; the benchmarks' modules imported).
+    Returns the seconds the imports took here (a run's fixed cost, reported beside the table)."""
+    import importlib
+
+    script = ("import json, sys, tempfile, warnings; warnings.simplefilter('ignore')\n"
+              "import bench_measure, bench_polyhedra, phasegauge\n"
+              "with tempfile.TemporaryDirectory() as folder:\n"
+              f"    phasegauge.measure({small_series}, 'c', workers=1, section_axis='x', section_count={SECTIONS})\n"
+              "print('MODULES ' + json.dumps(sorted(sys.modules)))")
+    env = dict(os.environ)
+    env["PYTHONPATH"] = os.path.dirname(os.path.abspath(__file__)) + os.pathsep + env.get("PYTHONPATH", "")
+    proc = subprocess.run([sys.executable, "-c", script], capture_output=True, text=True, env=env, check=True)
+    line = next(line for line in proc.stdout.splitlines() if line.startswith("MODULES "))
+    t0 = time.perf_counter()
+    for name in json.loads(line[len("MODULES "):]):
+        if name != "__main__" and name not in sys.modules:
+            try:
+                importlib.import_module(name)
+            except ImportError:  # a module made on the fly there (none of a run's code)
+                pass
+    return time.perf_counter() - t0
+
+
+def small_series(path: str) -> str:
+    """The expression that builds a small series (about 1000 cells, two steps) of the kind of the series at
+    ``path`` (its folder's info.json) in ``folder``, for :func:`import_run_code`."""
+    with open(os.path.join(os.path.dirname(path), "info.json")) as handle:
+        kind = json.load(handle)["kind"]
+    return f"bench_measure.build(folder, {kind!r}, 0.001, 2)['path']"
+
+
 def _child(config: str, path: str, steps: int) -> None:
     """Run one configuration; print a JSON line with timings and memory."""
     import psutil
@@ -233,17 +271,13 @@ def _child(config: str, path: str, steps: int) -> None:
     import h5py  # noqa: F401
     import meshio  # noqa: F401
 
+    import_s = 0.0
     if config == "baseline":
         import pyvista  # noqa: F401
     elif config != "raw":
         import pandas  # noqa: F401
 
-        import phasegauge  # noqa: F401
-        import phasegauge.analysis.droplets  # noqa: F401
-        import phasegauge.analysis.interface  # noqa: F401
-        import phasegauge.analysis.mixing  # noqa: F401
-        import phasegauge.analysis.tracking  # noqa: F401  (scipy.optimize: about 6 MB of code)
-        import skimage.measure  # noqa: F401  (marching cubes on regular grids)
+        import_s = import_run_code(small_series(path))
     if config == "serial-warm":
         _small_run(path)
     me = psutil.Process()
@@ -277,6 +311,7 @@ def _child(config: str, path: str, steps: int) -> None:
     thread.join()
     end = time.perf_counter()
     out["cpu_seconds"] = _cpu_seconds() - cpu_start
+    out["import_seconds"] = import_s
     half = start + 0.5 * (end - start)
     first = max([r for t, r in samples if t <= half], default=base)
     second = max([r for t, r in samples if t > half], default=base)
