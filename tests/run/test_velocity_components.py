@@ -118,3 +118,18 @@ def test_a_recipe_names_the_velocity_components_as_a_list_or_as_the_comma_text(t
     recipe.write_text(f'[input]\npath = "{listing}"\nfield = "c"\nvelocity = 3\n[output]\nfolder = "out"\n')
     with pytest.raises(OptionError, match=r"\[input\] velocity must be a text in quotes or a list \[..\], found 3"):
         load_recipe(str(recipe))
+
+
+def test_a_vector_whose_name_holds_a_comma_and_space_is_read_whole(tmp_path):
+    # a solver's averaged vector named 'U, avg' (the option normalises it to 'U,avg'): the same numbers as
+    # the vector named U, the plug inflow -U H_channel c_in = -2 per unit time [elementary kinematics]
+    mesh = grid_mesh((2 * N, N), ((0, 2), (0, 1)), kind="quad")
+    folder = tmp_path / "avg"
+    folder.mkdir()
+    steps = []
+    for k in range(3):
+        cells, _ = _front_steps(mesh, 0, k, None)
+        cells["U, avg"] = cells.pop("U")
+        steps.append((k * H / U, f"s_{k}.vtu", mesh, cells, None))
+    res = measure(write_listing(str(folder), steps), "c", velocity="U, avg", analyses=("conservation",))
+    np.testing.assert_allclose(res.steps["boundary_phase_outflow"], -U * 1.0, rtol=1e-12)

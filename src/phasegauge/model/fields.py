@@ -157,6 +157,9 @@ def vector_field(fields, name: str, *, where: str = "", role: str = "velocity fi
         cells and on points, two components on a 3D mesh.
     """
     held = set(fields.point_data) | set(fields.cell_data)
+    if "," in name and name not in held:  # a name with ', ' held whole ('U, avg'), as the option normalises it
+        name = next((h for h in sorted(held) if "," in h and ",".join(p.strip() for p in h.split(",")) == name),
+                    name)
     if "," in name and name not in held:
         values, location = _components(fields, name, where=where, role=role, dimension=dimension)
     else:
