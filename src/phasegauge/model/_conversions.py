@@ -239,13 +239,48 @@ def good_cells_fit(mesh: Mesh, good: np.ndarray) -> PointFit:
     kept.pop("last", None)  # the earlier pattern's fit goes before the new one is built
     rows, cols, dx, w, indptr = _stencil(mesh, keep=moved)
     ok = good[cols]
-    rows = rows[ok]
+    lost = np.zeros(mesh.n_points, dtype=bool)
+    lost[rows[~ok]] = True  # points beside a bad cell
+    rows, cols, dx, w = rows[ok], cols[ok], dx[ok], w[ok]
     counts = np.bincount(rows, minlength=mesh.n_points)
     indptr = np.zeros(mesh.n_points + 1, dtype=indptr.dtype)
     np.cumsum(counts, out=indptr[1:])
-    fit = _fit_of(rows, cols[ok], dx[ok], w[ok], indptr, mesh.dimension, mesh.n_points)
+    fit = _fit_of(rows, cols, dx, w, indptr, mesh.dimension, mesh.n_points)
+    posed = np.zeros(mesh.n_points, dtype=bool)
+    posed[fit.points[fit.posed]] = True
+    short = np.flatnonzero(lost & ~posed & (counts > 0))
+    if short.size:
+        fit = _fit_of(*_with_second_ring(mesh, good, short, rows, cols, dx, w), mesh.dimension, mesh.n_points)
     kept["last"] = (packed, fit)
     return fit
+
+
+def _with_second_ring(mesh: Mesh, good: np.ndarray, short: np.ndarray, rows, cols, dx, w) -> tuple:
+    """The good cells' stencil with, for the points ``short`` (beside a bad cell, too few good cells left for
+    a fit: the corner of a blank quad keeps 3), the good cells one ring further (those sharing a point
+    with a good cell of theirs): a linear field is still reproduced there, where the cells' mean is off
+    by up to a third of a cell's change. Returns ``(rows, cols, dx, w, indptr)`` grouped by point."""
+    from scipy import sparse
+
+    pc = mesh._point_cells
+    around = sparse.csr_matrix((np.ones(pc.indices.size), pc.indices, pc.indptr), shape=(mesh.n_points, mesh.n_cells))
+    own = around[short].multiply(good[None, :].astype(np.float64)).tocsr()  # their good cells
+    reach = ((own @ around.T) @ around).tocoo()  # cells of the points of those cells
+    take = good[reach.col]
+    extra_rows, extra_cols = short[reach.row[take]], reach.col[take].astype(cols.dtype)
+    extra_dx = mesh.cell_centroids[extra_cols] - mesh.coordinates[extra_rows]
+    scale = np.median(mesh.cell_sizes) ** 2 if mesh.n_cells else 1.0  # as point_stencil floors them
+    extra_w = 1.0 / np.maximum(np.einsum("nd,nd->n", extra_dx, extra_dx), 1e-12 * scale)
+    keep = ~np.isin(rows, short)  # their first ring is within the second
+    rows = np.concatenate([rows[keep], extra_rows])
+    order = np.argsort(rows, kind="stable")
+    rows = rows[order]
+    cols = np.concatenate([cols[keep], extra_cols])[order]
+    dx = np.concatenate([dx[keep], extra_dx])[order]
+    w = np.concatenate([w[keep], extra_w])[order]
+    indptr = np.zeros(mesh.n_points + 1, dtype=np.int64)
+    np.cumsum(np.bincount(rows, minlength=mesh.n_points), out=indptr[1:])
+    return rows, cols, dx, w, indptr
 
 
 def linear_point_values(mesh: Mesh, flat: np.ndarray, good: np.ndarray, fallback, *,
