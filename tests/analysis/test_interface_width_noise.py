@@ -37,9 +37,9 @@ def _drop(dim, location, low, high, noise, seed=1):
 # drop's without noise (our threshold) and of 2 w ln 19 (within -3 % / +8 %, the resolution's and the cell
 # averaging's bias at 1.2-1.3 cells per eps: 0.063 (h / eps)^2 = 4 %), and the bulks read are the drop's
 # within 4 % of the jump (the 3D drop's inside reads 0.649 of its 0.657 without noise, the median of points
-# still on the profile) and those read without noise within 1.5 %. Before: a partially miscible pair (0.324 / 0.657) lost its bulks from 2 % of
-# noise on points in 2D (0.5 % in 3D) and its widths read 6 to 11 times; at 3 % on points the pair at 0
-# and 1 read 14 % wide in 2D.
+# still on the profile) and those read without noise within 1.5 % (our thresholds). Before: a partially
+# miscible pair (0.324 / 0.657) lost its bulks from 2 % of noise on points in 2D (0.5 % in 3D) and its
+# widths read 6 to 11 times; at 3 % on points the pair at 0 and 1 read 14 % wide in 2D.
 @pytest.mark.parametrize("dim", [2, 3])
 @pytest.mark.parametrize("location", ["point", "cell"])
 @pytest.mark.parametrize("bulks", [(0.0, 1.0), (0.324, 0.657)])
