@@ -174,7 +174,7 @@ class PreparedWidths:
                 f"the bulk values scatter by {100 * spread:.1f} % of the jump between the phases "
                 f"({high - low:.3g}; sd as scaled MAD), beyond the {100 * TOO_NOISY:.0f} % up to which the "
                 "interface widths are told from such noise: they read high; average the field (over time, "
-                "or over more particles) before measuring"), stacklevel=3)
+                "or over more particles) before measuring, or read no width before the phases separate"), stacklevel=3)
         if not NOISE_EDGE_SPREADS * spread > _LOW:
             return None
         self.clipped = np.where(beyond, np.where(self.clipped < level, 0.0, 1.0), self.clipped)
