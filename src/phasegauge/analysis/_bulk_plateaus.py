@@ -92,29 +92,21 @@ def bulk_plateaus(c_point: np.ndarray, level: float, mesh=None, *, extremes=None
     if not finite.all():  # (no copy of the values when all are finite)
         c = c[finite]
     plateaus, spreads = [], []
+    sides = [_side_bulk(c, level, below, q) for below, q in ((True, 0.5), (False, 99.5))]
     made = {}  # the contour's reach, made once for both sides when a side asks
 
     def contour():
-        if "reach" not in made:
-            made["reach"] = _contour_reach(c_point, level, mesh, extremes)
+        if "reach" not in made:  # the profile read between the two sides' bulks as found so far
+            bulks = tuple(ideal if found is None else found[2] for found, ideal in zip(sides, (0.0, 1.0)))
+            made["reach"] = _contour_reach(c_point, level, mesh, extremes, bulks=bulks)
         return made["reach"]
 
-    for below, ideal, q in ((True, 0.0, 0.5), (False, 1.0, 99.5)):
-        mask = c < level if below else c > level
-        side = c[mask]
-        if side.size == 0:
+    for (below, ideal), found in zip(((True, 0.0), (False, 1.0)), sides):
+        if found is None:
             plateaus.append(ideal)
             spreads.append(0.0)
             continue
-        extreme = float(np.percentile(side, q))
-        g, near = extreme, side
-        for _ in range(3):
-            near = side[np.abs(side - g) < 0.05]
-            median = float(np.median(near))  # never empty: the extreme has neighbours within 0.05
-            if median == g:  # the same g would select the same values again: settled
-                break
-            g = median
-        spread = 1.4826 * float(np.median(np.abs(near - g)))
+        mask, side, g, extreme, near, spread = found
         # flat (moved little from the extreme) and clear of the ideal by three spreads
         strict = abs(g - extreme) <= 0.01 and abs(g - ideal) > 3.0 * spread
         # a noisy bulk holding most of its side, off its ideal by more than three spreads, is a plateau
@@ -155,6 +147,25 @@ def bulk_plateaus(c_point: np.ndarray, level: float, mesh=None, *, extremes=None
     return low, high, tail
 
 
+def _side_bulk(c: np.ndarray, level: float, below: bool, q: float):
+    """``(mask, side, g, extreme, near, spread)`` of one side of ``level`` (None where it holds no value): starting
+    from the side's ``q``-th percentile, three times the median of the side's values within 0.05, and the scaled MAD
+    of those values about it."""
+    mask = c < level if below else c > level
+    side = c[mask]
+    if side.size == 0:
+        return None
+    extreme = float(np.percentile(side, q))
+    g, near = extreme, side
+    for _ in range(3):
+        near = side[np.abs(side - g) < 0.05]
+        median = float(np.median(near))  # never empty: the extreme has neighbours within 0.05
+        if median == g:  # the same g would select the same values again: settled
+            break
+        g = median
+    return mask, side, g, extreme, near, 1.4826 * float(np.median(np.abs(near - g)))
+
+
 def _holds(side: np.ndarray, g: float, mesh, mask: np.ndarray, finite: np.ndarray,
            share: float = PLATEAU_SHARE) -> bool:
     """Whether ``share`` of a side (its values ``side``, where ``mask`` holds among the finite points) lies
@@ -167,14 +178,18 @@ def _holds(side: np.ndarray, g: float, mesh, mask: np.ndarray, finite: np.ndarra
     return float(volume[near].sum()) >= share * float(volume.sum())
 
 
-def _contour_reach(c_point: np.ndarray, level: float, mesh, extremes=None):
+def _contour_reach(c_point: np.ndarray, level: float, mesh, extremes=None, *, bulks=(0.0, 1.0)):
     """What :func:`_beyond_reach` reads of the contour, the same for both sides: ``(tree, eps, cell)``, the
     search tree of the centroids of the cells the level crosses, the logistic scale eps and those cells'
     median size; None where the level crosses no cell.
 
     eps is the median of d / |logit c - logit level| over the points at 0.1 < c < 0.9 clear of the level (d their
     distance to those centroids, logit c = ln(c / (1 - c))): the logistic profile c = 1 / (1 + exp(-d / eps)) read
-    back (cells and centroids stand for the contour: half a cell of error, within the REACH_CELLS floor).
+    back (cells and centroids stand for the contour: half a cell of error, within the REACH_CELLS floor). Where
+    both ``bulks`` (the two sides' bulk values as found so far) lie within 0.1 < c < 0.9 (a partially miscible
+    pair at 0.32 and 0.66), c and the level are first taken as (c - low) / (high - low): else the bulks' own points
+    are read as profile, and their distance to the contour as eps (0.15 for 0.01). With one bulk at 0 (or 1) the
+    other may be the crest of a bump that never reached its bulk, which that scale would read as a bulk.
     """
     from scipy.spatial import cKDTree
 
@@ -185,6 +200,9 @@ def _contour_reach(c_point: np.ndarray, level: float, mesh, extremes=None):
     if crossed.size == 0:
         return None
     tree = cKDTree(mesh.cell_centroids[crossed])
+    low, high = bulks
+    if 0.1 < low < high < 0.9:  # both bulks inside the ramp: read between them
+        c, level = (c - low) / (high - low), (level - low) / (high - low)
     with np.errstate(divide="ignore", invalid="ignore"):
         logit = np.log(c / (1.0 - c)) - np.log(np.clip(level, 0.01, 0.99) / (1.0 - np.clip(level, 0.01, 0.99)))
     ramp = np.flatnonzero((c > 0.1) & (c < 0.9) & (np.abs(logit) > 0.4))  # 0.4: c 0.1 off the level at 0.5
