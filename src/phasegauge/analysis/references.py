@@ -16,7 +16,10 @@ Reference tables have one row per checked quantity with the columns
     extremum the run may not hold is not checked: one at the run's first or last
     output (the run may start or end before the true one; the value there is
     checked with a ``NAME`` row at that time), or one whose ``time_of_`` row's band
-    the run's outputs do not cover.
+    the run's outputs do not cover. Nor is a value across a lost output (a skipped
+    step, or an output where the column is not finite): a ``NAME`` value between two
+    outputs with a lost one between them, an extremum whose three outputs straddle
+    one or whose ``time_of_`` band holds one.
 ``time``
     Time of a ``NAME`` check (the run covers it to :data:`~._grid_convergence.SPAN_REACH_SHARE` of its
     median output interval, for round-off in accumulated times); empty for extrema
