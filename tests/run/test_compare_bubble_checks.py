@@ -84,8 +84,8 @@ def test_exact_cell_fractions_are_not_failed_for_their_resolution(tmp_path, nx):
     measured = result.first.droplets.groupby("time")["circularity"].min()
     bias = measured.loc[1.9] - _circularity(_aspect(1.9))
     if nx == 40:
-        # the measured circularity reads +0.0034 high at t = 1.9 (0.34 (h/R)^2 = 0.0034), above the band's top 0.9033: it
-        # read fail before; now not applicable, naming the resolution and the fix
+        # the measured circularity reads +0.0034 high at t = 1.9 (0.34 (h/R)^2 = 0.0034), above the band's top
+        # 0.9033: it read fail before; now not applicable, naming the resolution and the fix
         assert 0.0025 < bias < 0.0036, bias
         assert row["verdict"] == NOT_APPLICABLE
         assert "10.0 cells in radius" in row["note"] and "finer mesh" in row["note"]
