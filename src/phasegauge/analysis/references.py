@@ -16,7 +16,10 @@ Reference tables have one row per checked quantity with the columns
     extremum the run may not hold is not checked: one at the run's first or last
     output (the run may start or end before the true one; the value there is
     checked with a ``NAME`` row at that time), or one whose ``time_of_`` row's band
-    the run's outputs do not cover.
+    the run's outputs do not cover. Nor is a value across a lost output (a skipped
+    step, or an output where the column is not finite): a ``NAME`` value between two
+    outputs with a lost one between them, an extremum whose three outputs straddle
+    one or whose ``time_of_`` band holds one.
 ``time``
     Time of a ``NAME`` check (the run covers it to :data:`~._grid_convergence.SPAN_REACH_SHARE` of its
     median output interval, for round-off in accumulated times); empty for extrema
@@ -48,7 +51,7 @@ from ._grid_convergence import covered_span, span_reach
 
 __all__ = ["RISING_BUBBLE_CASE1", "RISING_BUBBLE_CASE1_SOURCE", "check_rising_bubble",
            "check_against_table", "check_reference_table", "bubble_history", "largest_droplet",
-           "reference_columns", "CHECK_COLUMNS", "NOT_APPLICABLE"]
+           "reference_columns", "circularity_bias", "CHECK_COLUMNS", "NOT_APPLICABLE"]
 
 #: columns of every check result
 CHECK_COLUMNS = ("quantity", "value", "time", "reference", "reference_low", "reference_high",
@@ -175,12 +178,13 @@ def _reach(t: np.ndarray) -> tuple[float, float]:
     return covered_span(t, span_reach(t))
 
 
-def _extremum(t: np.ndarray, v: np.ndarray, kind: str) -> tuple[float, float, str]:
-    """Extremum value and time, refined by a parabola through the three samples around it, and
-    ``'first'`` or ``'last'`` when the extreme output is the run's first or last one ('' inside)."""
+def _extremum(t: np.ndarray, v: np.ndarray, kind: str) -> tuple[float, float, str, tuple]:
+    """Extremum value and time, refined by a parabola through the three samples around it (its vertex
+    kept within their two intervals), ``'first'`` or ``'last'`` when the extreme output is the run's first
+    or last one ('' inside), and the times of the outputs the value was taken from."""
     t, v = _finite(t, v)
     if v.size == 0:
-        return np.nan, np.nan, ""
+        return np.nan, np.nan, "", ()
     i = int(np.argmin(v) if kind == "min" else np.argmax(v))
     if 0 < i < v.size - 1:
         t0, t1, t2 = t[i - 1:i + 2]
@@ -191,9 +195,43 @@ def _extremum(t: np.ndarray, v: np.ndarray, kind: str) -> tuple[float, float, st
         if a != 0 and (a > 0) == (kind == "min"):
             ts = 0.5 * (t0 + t1) - d1 / (2 * a)
             if t0 <= ts <= t2:
-                return float(v0 + d1 * (ts - t0) + a * (ts - t0) * (ts - t1)), float(ts), ""
+                return float(v0 + d1 * (ts - t0) + a * (ts - t0) * (ts - t1)), float(ts), "", (t0, t1, t2)
     edge = "first" if i == 0 else "last" if i == v.size - 1 else ""
-    return float(v[i]), float(t[i]), edge
+    return float(v[i]), float(t[i]), edge, tuple(t[max(i - 1, 0):i + 2])
+
+
+def _lost_outputs(t_all: np.ndarray, v_all: np.ndarray, skipped_times) -> np.ndarray:
+    """Times of the outputs a column lacks, sorted: the skipped steps' (finite) times and the outputs whose
+    value is not finite."""
+    skipped = np.asarray(list(skipped_times), dtype=np.float64).ravel()
+    lost = np.concatenate([skipped, t_all[np.isfinite(t_all) & ~np.isfinite(v_all)]])
+    return np.sort(lost[np.isfinite(lost)])
+
+
+def _lost_between(lost: np.ndarray, start: float, stop: float) -> float:
+    """The first lost output strictly between ``start`` and ``stop``, or NaN."""
+    inside = lost[(lost > start) & (lost < stop)]
+    return float(inside[0]) if inside.size else np.nan
+
+
+def _lost_words(at: float, skipped_times, column: str) -> str:
+    """Why the output at ``at`` is lost: its step skipped, or the column not finite there."""
+    skipped = np.asarray(list(skipped_times), dtype=np.float64).ravel()
+    return "its step skipped" if np.any(skipped == at) else f"{column} not finite there"
+
+
+def _gap_note(t: np.ndarray, at: float, lost: np.ndarray, column: str, skipped_times) -> str:
+    """Why a value interpolated at ``at`` is not the run's: the two outputs around it have a lost output
+    between them ('' when they have none, or ``at`` is an output's own time)."""
+    j = int(np.searchsorted(t, at))
+    if lost.size == 0 or j == 0 or j >= t.size or t[j] == at:
+        return ""
+    gap = _lost_between(lost, t[j - 1], t[j])
+    if np.isnan(gap):
+        return ""
+    return (f"t = {at:g} lies between the outputs at t = {t[j - 1]:g} and {t[j]:g}, with an output lost between "
+            f"them (t = {gap:g}, {_lost_words(gap, skipped_times, column)}): a value interpolated across the gap "
+            "is not the run's")
 
 
 def _band(ref) -> tuple[float, float]:
@@ -204,7 +242,7 @@ def _band(ref) -> tuple[float, float]:
     return float(ref["low"] - tol), float(ref["high"] + tol)
 
 
-def check_against_table(run: pd.DataFrame, reference) -> pd.DataFrame:
+def check_against_table(run: pd.DataFrame, reference, *, skipped_times=()) -> pd.DataFrame:
     """Check a run's history against a reference table.
 
     Parameters
@@ -216,6 +254,9 @@ def check_against_table(run: pd.DataFrame, reference) -> pd.DataFrame:
         The reference table (format in the module notes): columns
         ``quantity, time, value, tolerance`` and optional ``low, high, source``
         (:func:`phasegauge.io.read_reference_table` reads one from a CSV file).
+    skipped_times : sequence of float, optional
+        Times of the run's outputs that were not read (steps skipped as damaged); NaN times are
+        left out. With the outputs where a column is not finite they are the run's lost outputs.
 
     Returns
     -------
@@ -225,8 +266,10 @@ def check_against_table(run: pd.DataFrame, reference) -> pd.DataFrame:
         checked time, or the time of the extremum), ``verdict`` ``pass``,
         ``fail`` or ``not_applicable`` (:data:`NOT_APPLICABLE`: the run does not
         cover the time, its extremum lies at its first or last output, its outputs
-        do not cover the band of the extremum's time, or the column is all NaN;
-        ``value`` is then NaN and ``note`` says which).
+        do not cover the band of the extremum's time, or the column is all NaN; a
+        ``NAME`` check between two outputs with a lost output between them, an
+        extremum whose three outputs straddle a lost output or whose time band holds
+        one; ``value`` is then NaN and ``note`` says which).
 
     Raises
     ------
@@ -251,24 +294,39 @@ def check_against_table(run: pd.DataFrame, reference) -> pd.DataFrame:
     for _, ref in table.iterrows():
         quantity = ref["quantity"]
         kind, _, column = quantity.rpartition(":")
-        t, v = _finite(t_all, run[column].to_numpy(dtype=np.float64))
+        v_all = run[column].to_numpy(dtype=np.float64)
+        t, v = _finite(t_all, v_all)
+        lost = _lost_outputs(t_all, v_all, skipped_times)
         low, high = _band(ref)
         note = "" if t.size else f"{column} is not finite at any output"
         if not kind:
             value, at = _value_at(t, v, float(ref["time"])), float(ref["time"])
             if t.size and np.isnan(value):
                 note = f"the run's outputs of {column} (t = {t[0]:g} to {t[-1]:g}) do not reach t = {at:g}"
+            elif t.size:
+                note = _gap_note(t, at, lost, column, skipped_times)
         else:
             extreme = kind.rsplit("_", 1)[-1]
-            value, at, edge = _extremum(t, v, extreme)
+            value, at, edge, used = _extremum(t, v, extreme)
             band = time_bands.get(f"{extreme}:{column}")
+            word = "smallest" if extreme == "min" else "largest"
+            straddled = _lost_between(lost, used[0], used[-1]) if used else np.nan
+            in_band = _lost_between(lost, band[0], band[1]) if band is not None else np.nan
             if edge:
-                word = "smallest" if extreme == "min" else "largest"
                 note = (f"the {word} {column} ({value:.6g}) is at the run's {edge} output, t = {at:g}: the run may "
                         f"not hold its {extreme}imum (check the value there with a plain {column} row at t = {at:g})")
             elif t.size and band is not None and not (_reach(t)[0] <= band[0] and band[1] <= _reach(t)[1]):
                 note = (f"the run's outputs of {column} (t = {t[0]:g} to {t[-1]:g}) do not cover the band of the "
                         f"{extreme}imum's time, {band[0]:g} to {band[1]:g}")
+            elif not np.isnan(straddled):
+                lost_why = _lost_words(straddled, skipped_times, column)
+                note = (f"the outputs around the {word} {column} (t = {', '.join(f'{x:g}' for x in used)}) have an "
+                        f"output lost between them (t = {straddled:g}, {lost_why}): a parabola across the gap is "
+                        "not the run's")
+            elif not np.isnan(in_band):
+                lost_why = _lost_words(in_band, skipped_times, column)
+                note = (f"the run lost its output of {column} at t = {in_band:g} ({lost_why}), inside the band of "
+                        f"the {extreme}imum's time, {band[0]:g} to {band[1]:g}: the run may not hold its {extreme}imum")
             if kind.startswith("time_of_"):
                 value = at
         if note:
@@ -292,17 +350,29 @@ def _value_at(t: np.ndarray, v: np.ndarray, at: float) -> float:
     return float(np.interp(at, t, v))
 
 
-def check_rising_bubble(bubble: pd.DataFrame, *, reference: pd.DataFrame | None = None) -> pd.DataFrame:
+def check_rising_bubble(bubble: pd.DataFrame, *, reference: pd.DataFrame | None = None,
+                        cell_size: float | None = None, quad_grid: bool = True, skipped_times=()) -> pd.DataFrame:
     """Check a rising-bubble run against Hysing et al. (2009), test case 1.
 
     Parameters
     ----------
     bubble : DataFrame with columns ``time``, ``circularity``, ``centroid_y``, ``velocity_y``
         The bubble's history (one row per output time): circularity = perimeter
-        of the equal-area circle / perimeter, centroid height and mean rise
-        velocity (int u_y dV / V over the bubble), in the benchmark's units.
+        of the equal-area circle / perimeter, height of the centroid along the rise
+        and mean rise velocity (int u dV / V over the bubble), in the benchmark's units
+        (:func:`bubble_history`; an optional ``volume``, the bubble's area, gives its radius).
     reference : DataFrame, optional
         A table in the format of :data:`RISING_BUBBLE_CASE1` (default that table).
+    cell_size : float, optional
+        The cell size h of a run of volume-of-fluid cell fractions (a sharp interface on
+        cells): the circularity of such a run reads a perimeter bias of its own, and
+        ``min:circularity`` is not applicable where that bias exceeds a quarter of the
+        band's width (:func:`circularity_bias`). None (a diffuse run, a level set, or h
+        unknown): no such rule.
+    quad_grid : bool
+        The cells are a regular grid of quads (else triangles, polygons or quads off a grid).
+    skipped_times : sequence of float, optional
+        Times of the run's skipped outputs (:func:`check_against_table`).
 
     Returns
     -------
@@ -333,32 +403,99 @@ def check_rising_bubble(bubble: pd.DataFrame, *, reference: pd.DataFrame | None 
     if need:
         raise OptionError(f"the bubble table lacks columns {need}",
                           fix="give time, circularity, centroid_y and velocity_y (see bubble_history)")
-    return check_against_table(bubble, RISING_BUBBLE_CASE1 if reference is None else reference)
+    checks = check_against_table(bubble, RISING_BUBBLE_CASE1 if reference is None else reference,
+                                 skipped_times=skipped_times)
+    if cell_size is not None and np.isfinite(cell_size) and cell_size > 0:
+        _resolution_rule(checks, bubble, float(cell_size), quad_grid)
+    return checks
 
 
-def bubble_history(droplets: pd.DataFrame) -> pd.DataFrame:
+#: the perimeter bias of circularity from cell fractions on a regular grid of quads, as B (h/R)^2
+QUAD_BIAS_FACTOR = 0.34
+#: the relative bias on triangles and other meshes (the contour reads 0.6 to 0.9 % long): its upper end
+OTHER_CELLS_BIAS = 0.009
+
+
+def circularity_bias(radius_cells: float, circularity: float, quad_grid: bool = True) -> float:
+    """The perimeter bias of a drop's circularity measured from exact volume-of-fluid cell fractions
+    (README, droplets.csv): what the measured circularity reads above the shape's (negative: below).
+
+    On a regular grid of quads the c = 0.5 contour of the point values rebuilt from the cells is
+    short by a second-order amount, so circularity reads high by about ``QUAD_BIAS_FACTOR (h / R)**2``
+    (``radius_cells`` = R / h); on triangles, polygons and quads off a grid the contour is long and
+    circularity reads low by 0.6 to 0.9 % of ``circularity`` at any resolution (``OTHER_CELLS_BIAS``,
+    its upper end).
+    """
+    if not quad_grid:
+        return -OTHER_CELLS_BIAS * circularity
+    return QUAD_BIAS_FACTOR / radius_cells ** 2
+
+
+def _resolution_rule(checks: pd.DataFrame, bubble: pd.DataFrame, h: float, quad_grid: bool) -> None:
+    """``min:circularity`` not applicable (in place) where the perimeter bias of the bubble's cell fractions
+    exceeds a quarter of the band's width (our threshold), with a note naming the resolution, the bias and
+    the fix."""
+    rows = np.flatnonzero((checks["quantity"] == "min:circularity") & (checks["verdict"] != NOT_APPLICABLE))
+    for k in rows:
+        at = float(checks.at[k, "time"])
+        value = float(checks.at[k, "value"])
+        times = bubble["time"].to_numpy(dtype=np.float64)
+        area = bubble["volume"].to_numpy(dtype=np.float64) if "volume" in bubble.columns else np.full(times.size,
+                                                                                                      np.nan)
+        ok = np.isfinite(times) & np.isfinite(area) & (area > 0)
+        # the bubble's radius at the output nearest the minimum; the benchmark's 0.25 without its area
+        radius = np.sqrt(area[ok][np.argmin(np.abs(times[ok] - at))] / np.pi) if np.any(ok) else 0.25
+        cells = radius / h
+        bias = circularity_bias(cells, value, quad_grid)
+        width = float(checks.at[k, "reference_high"] - checks.at[k, "reference_low"])
+        if not np.isfinite(width) or abs(bias) <= 0.25 * width:  # a quarter of the band: our threshold
+            continue
+        if quad_grid:
+            need = np.sqrt(QUAD_BIAS_FACTOR / (0.25 * width))
+            why = (f"the bubble is {cells:.1f} cells in radius at t = {at:g}, where circularity from cell fractions "
+                   f"on a grid of quads reads about {bias:+.4f} ({QUAD_BIAS_FACTOR:g} (h/R)^2), more than a quarter "
+                   f"of the band's width {width:g}: measure on a finer mesh, at least {np.ceil(need):.0f} cells "
+                   "in radius")
+        else:
+            why = (f"circularity from cell fractions on triangles or cells off a regular grid reads about {bias:+.4f} "
+                   f"(0.6 to 0.9 % low, not less on finer meshes; the bubble is {cells:.1f} cells in radius at "
+                   f"t = {at:g}), more than a quarter of the band's width {width:g}: measure on a regular grid of "
+                   "quads")
+        checks.loc[k, ["value", "verdict", "note"]] = [np.nan, NOT_APPLICABLE, why]
+
+
+def bubble_history(droplets: pd.DataFrame, *, rise_axis: str = "y") -> pd.DataFrame:
     """The largest droplet of each step as a bubble history.
 
     Parameters
     ----------
     droplets : DataFrame
         A droplets table (droplets.csv) with ``step``, ``time``, ``volume``,
-        ``centroid_y``, ``circularity`` and, when a velocity was given,
-        ``velocity_y``.
+        ``centroid_<rise_axis>``, ``circularity`` and, when a velocity was given,
+        ``velocity_<rise_axis>``.
+    rise_axis : str
+        The axis the bubble rises along, ``x``, ``y`` or ``z``: the 2D mesh's second plane axis
+        (a run in the x-z plane rises along z). Its centroid and velocity are the history's
+        ``centroid_y`` and ``velocity_y``, the benchmark's names.
 
     Returns
     -------
     DataFrame with columns ``step, time, volume, circularity, centroid_y, velocity_y``
         One row per step (``velocity_y`` NaN when the table has none).
     """
-    need = [c for c in ("step", "time", "volume", "centroid_y", "circularity") if c not in droplets.columns]
+    if rise_axis not in ("x", "y", "z"):
+        raise OptionError(f"the rise axis must be x, y or z, found {rise_axis!r}",
+                          fix="give the 2D mesh's second plane axis")
+    centroid, velocity = f"centroid_{rise_axis}", f"velocity_{rise_axis}"
+    need = [c for c in ("step", "time", "volume", centroid, "circularity") if c not in droplets.columns]
     if need:
         raise OptionError(f"the droplet table lacks columns {need}", fix="pass a 2D droplets.csv table")
     if len(droplets) == 0:
         return pd.DataFrame(columns=["step", "time", "volume", "circularity", "centroid_y", "velocity_y"])
     largest = largest_droplet(droplets)
-    out = largest[["step", "time", "volume", "circularity", "centroid_y"]].copy()
-    out["velocity_y"] = largest["velocity_y"] if "velocity_y" in largest.columns else np.nan
+    out = largest[["step", "time", "volume", "circularity"]].copy()
+    out["centroid_y"] = largest[centroid]
+    out["velocity_y"] = largest[velocity] if velocity in largest.columns else np.nan
     return out.reset_index(drop=True)
 
 

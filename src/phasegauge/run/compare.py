@@ -138,6 +138,7 @@ def _compare_runs(first, second, *, out, overwrite, level, time_tolerance, spaci
     from ..io import Series
     from ._compare_kinds import band_excess
     from ._compare_periodic import check_one_period, normalize_periodic
+    from ._compare_references import bubble_cells, rise_axis, skipped_times
     from ._compare_steps import paired_shapes, plan_sampling
     from .measure import measure
 
@@ -219,6 +220,7 @@ def _compare_runs(first, second, *, out, overwrite, level, time_tolerance, spaci
         metrics = cmp.compare_metrics(res_a.steps, res_b.steps, pairs=pairs)
         n_pairs = len(pairs)
         keep = set(np.linspace(0, n_pairs - 1, min(snapshots, n_pairs)).round().astype(int)) if n_pairs else set()
+        cells = bubble_cells(res_a, series[0]) if rising_bubble else {}  # the first run's mesh, for its bias
         shapes, overlays = paired_shapes(pairs, res_a.results, res_b.results, plan, series=series,
                                          options=(res_a.options, res_b.options), level=level, spacing=spacing,
                                          overlay_pairs=keep, periodic=periodic)
@@ -230,12 +232,15 @@ def _compare_runs(first, second, *, out, overwrite, level, time_tolerance, spaci
     comparison = comparison_table(metrics, pd.DataFrame(shapes) if shapes else None, labels)
     drop_stats = cmp.compare_droplet_statistics(res_a.droplets, res_b.droplets, pairs)
     checks = []
+    lost = skipped_times(res_a)
     if rising_bubble:
-        checks.append(references.check_rising_bubble(references.bubble_history(res_a.droplets))
+        bubble = references.bubble_history(res_a.droplets, rise_axis=rise_axis(res_a))
+        checks.append(references.check_rising_bubble(bubble, skipped_times=lost, **cells)
                       .assign(run=labels[0]))
     if reference_table:
         try:
-            checks.append(references.check_against_table(_reference_quantities(res_a), table).assign(run=labels[0]))
+            checks.append(references.check_against_table(_reference_quantities(res_a), table, skipped_times=lost)
+                          .assign(run=labels[0]))
         except OptionError as err:  # named by the file
             raise OptionError(err.what, where=os.fspath(reference_table), fix=err.fix) from None
     reference_checks = pd.concat(checks, ignore_index=True) if checks else pd.DataFrame()
