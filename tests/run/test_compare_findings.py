@@ -103,8 +103,8 @@ def test_time_checks_by_themselves():
     pairs = pd.DataFrame({"time_a": [0.0, 0.1], "time_b": [0.0, 0.12]})
     found, notes = time_checks([0, 0.1, 0.2], [0, 0.12, 0.2], pairs, ("a", "b"), None)
     assert found == [] and len(notes) == 1
-    assert notes[0].startswith("1 of 2 pairs join times more than 1 % of the output interval (0.1) apart, the "
-                               "largest 0.02 (a t = 0.1 against b t = 0.12)")
+    assert notes[0].startswith("1 of 2 pairs join times more than 1 % of the output interval apart, the largest "
+                               "0.02 (a t = 0.1 against b t = 0.12, the interval there 0.1)")
     # one run writing ten times as often over the same span: a note, no finding
     fine, coarse = np.linspace(0, 1, 101), np.linspace(0, 1, 11)
     pairs = pd.DataFrame({"time_a": coarse, "time_b": coarse})
@@ -158,7 +158,7 @@ def test_paired_times_that_differ_are_shown_and_noted(tmp_path):
     # the Hausdorff distance of each pair is the drop's travel over its gap (equal circles: the centres' distance)
     assert np.allclose(result.comparison["hausdorff"], [0, 0.02, 0.01, 0], atol=0.005)
     assert "<th>time_b</th>" in page and "<td>0.12</td>" in page
-    note = "2 of 4 pairs join times more than 1 % of the output interval (0.09) apart, the largest 0.02 (first t = 0.1 "
-    assert note + "against second t = 0.12)" in page.replace("&#x27;", "'")
+    note = "2 of 4 pairs join times more than 1 % of the output interval apart, the largest 0.02 (first t = 0.1 "
+    assert note + "against second t = 0.12, the interval there 0.09)" in page.replace("&#x27;", "'")
     assert "Both interfaces at t = 0.2 (second: t = 0.21)" in page
     assert not said

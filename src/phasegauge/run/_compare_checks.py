@@ -37,7 +37,8 @@ def time_checks(times_a, times_b, pairs, labels, tolerance) -> tuple[list, list]
         The pairs (``time_a``, ``time_b``), as :func:`phasegauge.analysis.compare.pair_times` gives them.
     labels : pair of str
     tolerance : float or None
-        The pairing's time tolerance (None: the default, a quarter of the smaller median interval).
+        The pairing's time tolerance (None: the default, a quarter of the smaller of the two runs' output
+        intervals around each time).
 
     Returns
     -------
@@ -48,7 +49,7 @@ def time_checks(times_a, times_b, pairs, labels, tolerance) -> tuple[list, list]
         Median output intervals that differ by that factor while the spans agree; runs that start more
         than the tolerance apart; paired times that differ by more than :data:`GAP_SHARE` of the interval.
     """
-    from ..analysis.compare import PAIR_SHARE, _median_interval
+    from ..analysis.compare import PAIR_SHARE, _local_intervals, _median_interval
 
     ta = np.sort(np.asarray(times_a, dtype=float))
     tb = np.sort(np.asarray(times_b, dtype=float))
@@ -56,10 +57,18 @@ def time_checks(times_a, times_b, pairs, labels, tolerance) -> tuple[list, list]
     a, b = labels
     if not ta.size or not tb.size:
         return [], []
-    intervals = (_median_interval(ta), _median_interval(tb))  # as the pairing takes them
+    intervals = (_median_interval(ta), _median_interval(tb))
     finite = [v for v in intervals if np.isfinite(v) and v > 0]
-    if tolerance is None:
-        tolerance = PAIR_SHARE * min(finite) if finite else 0.0
+    local = (_local_intervals(ta), _local_intervals(tb))  # the intervals around each time, as the pairing takes them
+
+    def tol(k):  # the tolerance at the runs' first (k = 0) or last (k = -1) times
+        if tolerance is not None:
+            return tolerance
+        there = np.fmin(local[0][k], local[1][k])
+        return PAIR_SHARE * there if np.isfinite(there) else 0.0
+
+    said_tol = (f"the time tolerance {tolerance:.3g}" if tolerance is not None
+                else "the time tolerance (a quarter of the output interval there)")
     findings, notes = [], []
     spans = (ta[-1] - ta[0], tb[-1] - tb[0])
     said_units = False
@@ -76,39 +85,42 @@ def time_checks(times_a, times_b, pairs, labels, tolerance) -> tuple[list, list]
             f"{intervals[0]:.4g}, {b} {intervals[1]:.4g}) over like spans: only the coarser run's outputs can pair; "
             "if the runs should write alike, they may be in different time units: give one run as a 'time,path' "
             "listing with its times converted to the other's units")
-    lo, hi = max(ta[0], tb[0]) - tolerance, min(ta[-1], tb[-1]) + tolerance
+    lo, hi = max(ta[0], tb[0]) - tol(0), min(ta[-1], tb[-1]) + tol(-1)
     could = min(np.count_nonzero((ta >= lo) & (ta <= hi)), np.count_nonzero((tb >= lo) & (tb <= hi)))
     if not said_units and could >= 2 and len(pairs) < 0.5 * could:
         findings.append(
             f"most steps that could pair do not: over the times both runs cover (t = {max(ta[0], tb[0]):.6g} to "
-            f"{min(ta[-1], tb[-1]):.6g}) the run with fewer steps has {could}, and {len(pairs)} pair within the "
-            f"time tolerance {tolerance:.3g}, so the comparison covers few moments: the runs may write at other "
+            f"{min(ta[-1], tb[-1]):.6g}) the run with fewer steps has {could}, and {len(pairs)} pair within "
+            f"{said_tol}, so the comparison covers few moments: the runs may write at other "
             "times (give --time-tolerance) or in other time units or clocks (give 'time,path' listings with the "
             "times converted)")
-    if abs(ta[0] - tb[0]) > tolerance:
+    if abs(ta[0] - tb[0]) > tol(0):
         notes.append(
             f"the runs start at different times ({a} at t = {ta[0]:.6g}, {b} at t = {tb[0]:.6g}, more than the "
-            f"time tolerance {tolerance:.3g} apart): a run started from a later state, or a clock offset; pairs "
+            f"time tolerance {tol(0):.3g} apart): a run started from a later state, or a clock offset; pairs "
             "compare equal times, so if one run's clock is offset give it as a 'time,path' listing with its times "
             "shifted")
-    notes += _gap_note(pairs, min(finite) if finite else float("nan"), labels)
+    notes += _gap_note(pairs, ta, tb, local, labels)
     return findings, notes
 
 
-def _gap_note(pairs, interval: float, labels) -> list:
-    """The note on paired times that differ by more than :data:`GAP_SHARE` of the output interval."""
-    if not len(pairs) or not np.isfinite(interval):
+def _gap_note(pairs, ta, tb, local, labels) -> list:
+    """The note on paired times that differ by more than :data:`GAP_SHARE` of the smaller of the two runs'
+    output intervals around them (``local``: each sorted run's ``ta``, ``tb`` intervals around its times)."""
+    if not len(pairs):
         return []
-    gap = np.abs(pairs["time_a"].to_numpy(dtype=float) - pairs["time_b"].to_numpy(dtype=float))
-    apart = gap > GAP_SHARE * interval
+    time_a, time_b = (pairs[c].to_numpy(dtype=float) for c in ("time_a", "time_b"))
+    interval = np.fmin(local[0][np.clip(np.searchsorted(ta, time_a), 0, ta.size - 1)],
+                       local[1][np.clip(np.searchsorted(tb, time_b), 0, tb.size - 1)])
+    gap = np.abs(time_a - time_b)
+    apart = np.isfinite(interval) & (gap > GAP_SHARE * interval)
     if not apart.any():
         return []
-    k = int(np.argmax(gap))
-    row = pairs.iloc[k]
+    k = int(np.argmax(np.where(apart, gap, -1.0)))
     return [f"{int(apart.sum())} of {len(pairs)} pairs join times more than {100 * GAP_SHARE:g} % of the output "
-            f"interval ({interval:.4g}) apart, the largest {gap[k]:.4g} ({labels[0]} t = {row['time_a']:.6g} "
-            f"against {labels[1]} t = {row['time_b']:.6g}): the shape measures of those pairs include the flow's "
-            "motion over that gap (time_b is in the shape table and comparison.csv)"]
+            f"interval apart, the largest {gap[k]:.4g} ({labels[0]} t = {time_a[k]:.6g} against {labels[1]} "
+            f"t = {time_b[k]:.6g}, the interval there {interval[k]:.4g}): the shape measures of those pairs include "
+            "the flow's motion over that gap (time_b is in the shape table and comparison.csv)"]
 
 
 def _when(row) -> str:

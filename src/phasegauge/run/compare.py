@@ -95,7 +95,7 @@ def compare_runs(first: RunSpec, second: RunSpec, *, out=None, overwrite: bool =
         Indicator level of the interfaces.
     time_tolerance : float, optional
         Steps pair when their times differ by at most this (default: a quarter of the
-        smaller median output interval).
+        smaller of the two runs' output intervals around the pair's times).
     spacing : float, optional
         Spacing of the common sampling grid (default: finer than both meshes).
     reference_table : str, optional
