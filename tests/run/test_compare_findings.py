@@ -110,6 +110,15 @@ def test_time_checks_by_themselves():
     pairs = pd.DataFrame({"time_a": coarse, "time_b": coarse})
     found, notes = time_checks(fine, coarse, pairs, ("a", "b"), None)
     assert found == [] and len(notes) == 1 and "median output intervals differ by a factor of 10" in notes[0]
+    # a short run (0 to 0.15) against a long one (0 to 1), every step of the short one paired: a note; the
+    # same span ratio with one pair (seconds against milliseconds): a finding
+    long, short = np.round(np.arange(0, 1.0001, 0.01), 12), np.round(np.arange(0, 0.15001, 0.01), 12)
+    pairs = pd.DataFrame({"time_a": short, "time_b": short})
+    found, notes = time_checks(long, short, pairs, ("a", "b"), None)
+    assert found == [] and notes == ["the runs' time spans differ by a factor of 6.667 (a t = 0 to 1, b t = 0 to "
+                                     "0.15): the comparison covers the shorter run's span"]
+    found, notes = time_checks(long, 1000 * short, pairs[:1], ("a", "b"), None)
+    assert len(found) == 1 and "different time units" in found[0] and "and 1 of their steps pair" in found[0]
 
 
 def test_a_pair_compared_over_half_the_domain_is_named_and_marked(tmp_path):

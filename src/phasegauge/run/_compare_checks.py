@@ -43,10 +43,11 @@ def time_checks(times_a, times_b, pairs, labels, tolerance) -> tuple[list, list]
     Returns
     -------
     findings : list of str
-        Time spans that differ by :data:`TIME_UNITS_FACTOR` or more (other time units), and most steps
-        that could pair left unpaired.
+        Time spans that differ by :data:`TIME_UNITS_FACTOR` or more (other time units) where fewer than
+        half the shorter run's steps pair, and most steps that could pair left unpaired.
     notes : list of str
-        Median output intervals that differ by that factor while the spans agree; runs that start more
+        Time spans that differ by that factor where most of the shorter run's steps pair (a short run);
+        median output intervals that differ by that factor while the spans agree; runs that start more
         than the tolerance apart; paired times that differ by more than :data:`GAP_SHARE` of the interval.
     """
     from ..analysis.compare import PAIR_SHARE, _local_intervals, _median_interval
@@ -72,7 +73,12 @@ def time_checks(times_a, times_b, pairs, labels, tolerance) -> tuple[list, list]
     findings, notes = [], []
     spans = (ta[-1] - ta[0], tb[-1] - tb[0])
     said_units = False
-    if min(spans) > 0 and max(spans) / min(spans) >= TIME_UNITS_FACTOR:
+    shorter = (ta, tb)[int(spans[1] < spans[0])]  # a short run whose steps mostly pair is no unit mismatch
+    if min(spans) > 0 and max(spans) / min(spans) >= TIME_UNITS_FACTOR and len(pairs) >= 0.5 * shorter.size:
+        notes.append(
+            f"the runs' time spans differ by a factor of {max(spans) / min(spans):.4g} ({a} t = {ta[0]:.6g} to "
+            f"{ta[-1]:.6g}, {b} t = {tb[0]:.6g} to {tb[-1]:.6g}): the comparison covers the shorter run's span")
+    elif min(spans) > 0 and max(spans) / min(spans) >= TIME_UNITS_FACTOR:
         said_units = True
         findings.append(
             f"the runs' time spans differ by a factor of {max(spans) / min(spans):.4g} ({a} t = {ta[0]:.6g} to "
