@@ -82,9 +82,9 @@ def time_checks(times_a, times_b, pairs, labels, tolerance) -> tuple[list, list]
         said_units = True
         findings.append(
             f"the runs' time spans differ by a factor of {max(spans) / min(spans):.4g} ({a} t = {ta[0]:.6g} to "
-            f"{ta[-1]:.6g}, {b} t = {tb[0]:.6g} to {tb[-1]:.6g}), so the runs may be in different time units "
-            f"(seconds against milliseconds), and {len(pairs)} of their steps pair: give one run as a 'time,path' "
-            "listing with its times converted to the other's units")
+            f"{ta[-1]:.6g}, {b} t = {tb[0]:.6g} to {tb[-1]:.6g}) and {len(pairs)} of their steps pair: the runs "
+            "may be in different time units (seconds against milliseconds); give one run as a 'time,path' listing "
+            "with its times converted to the other's units")
     elif len(finite) == 2 and max(finite) / min(finite) >= TIME_UNITS_FACTOR:
         notes.append(
             f"the runs' median output intervals differ by a factor of {max(finite) / min(finite):.4g} ({a} "
@@ -95,11 +95,10 @@ def time_checks(times_a, times_b, pairs, labels, tolerance) -> tuple[list, list]
     could = min(np.count_nonzero((ta >= lo) & (ta <= hi)), np.count_nonzero((tb >= lo) & (tb <= hi)))
     if not said_units and could >= 2 and len(pairs) < 0.5 * could:
         findings.append(
-            f"most steps that could pair do not: over the times both runs cover (t = {max(ta[0], tb[0]):.6g} to "
-            f"{min(ta[-1], tb[-1]):.6g}) the run with fewer steps has {could}, and {len(pairs)} pair within "
-            f"{said_tol}, so the comparison covers few moments: the runs may write at other "
-            "times (give --time-tolerance) or in other time units or clocks (give 'time,path' listings with the "
-            "times converted)")
+            f"most steps that could pair do not: over t = {max(ta[0], tb[0]):.6g} to {min(ta[-1], tb[-1]):.6g}, "
+            f"which both runs cover, the run with fewer steps has {could} and {len(pairs)} pair within {said_tol}: "
+            "the runs write at other times, clocks or units; give --time-tolerance, or 'time,path' listings with "
+            "the times converted")
     if abs(ta[0] - tb[0]) > tol(0):
         notes.append(
             f"the runs start at different times ({a} at t = {ta[0]:.6g}, {b} at t = {tb[0]:.6g}, more than the "
@@ -130,7 +129,7 @@ def _gap_note(pairs, ta, tb, local, labels) -> list:
 
 
 def _when(row) -> str:
-    return f"t = {row['time_a']:.6g} (steps {int(row['step_a'])} and {int(row['step_b'])})"
+    return f"t = {row['time_a']:.6g}, steps {int(row['step_a'])} and {int(row['step_b'])}"
 
 
 def shape_checks(comparison, labels) -> list:
@@ -150,10 +149,10 @@ def shape_checks(comparison, labels) -> list:
                 for k in np.flatnonzero(partial)[:3]]
         more = f" and {int(partial.sum()) - 3} more" if partial.sum() > 3 else ""
         found.append(
-            f"{int(partial.sum())} pair(s) compared over part of the domain ({'; '.join(rows)}{more}, against the "
-            f"largest pair's compared_volume {largest:.4g}): cells not finite in one run are left out, so those "
-            "pairs' mismatch_volume and dice miss part of the interfaces and do not compare with the other pairs'; "
-            "see each run's warnings on values not finite (marked 'partial' in the report's shape table)")
+            f"{int(partial.sum())} pair(s) compared over part of the domain ({'; '.join(rows)}{more}; the largest "
+            f"pair's compared_volume {largest:.4g}): cells not finite in one run are left out, so their "
+            "mismatch_volume and dice miss part of the interfaces (the report's shape table marks them 'partial'); "
+            "see each run's warnings on values not finite")
     needed = ("dice", "mean_distance", "grid_spacing", "volume_a", "volume_b", "compared_volume")
     if all(c in comparison for c in needed):
         t = {c: comparison[c].to_numpy(dtype=float) for c in needed}
@@ -164,9 +163,9 @@ def shape_checks(comparison, labels) -> list:
             k = int(np.flatnonzero(opposite)[0])
             found.append(
                 f"the runs appear to measure opposite phases at {int(opposite.sum())} of {len(comparison)} pairs "
-                f"(first {_when(comparison.iloc[k])}: dice {t['dice'][k]:.3g}, yet the interfaces lie "
-                f"{t['mean_distance'][k]:.3g} apart on average, {t['mean_distance'][k] / t['grid_spacing'][k]:.2g} "
-                f"grid spacings, and the phase volumes {t['volume_a'][k]:.4g} and {t['volume_b'][k]:.4g} fill the "
-                f"compared volume {t['compared_volume'][k]:.4g}): check --phase-a and --phase-b (recipe: phase in "
-                "[first] and [second]) and the ranges: a phase field's drop at -1 is --phase-a lower")
+                f"({_when(comparison.iloc[k])}: dice {t['dice'][k]:.3g}, yet the interfaces lie "
+                f"{t['mean_distance'][k] / t['grid_spacing'][k]:.2g} grid spacings apart on average and the phase "
+                f"volumes {t['volume_a'][k]:.4g} + {t['volume_b'][k]:.4g} fill the compared volume "
+                f"{t['compared_volume'][k]:.4g}): check --phase-a, --phase-b (recipe: phase) and the ranges; a phase "
+                "field's drop at -1 is --phase-a lower")
     return found
