@@ -465,7 +465,8 @@ def samples(directory, only, overwrite, list_names):
 @click.option("--label-b", default="second", show_default=True, help="Name of the second run in tables.")
 @click.option("--level", type=float, default=0.5, show_default=True, help="Indicator level of the interfaces.")
 @click.option("--time-tolerance", type=float, default=None,
-              help="Pair steps whose times differ by at most this (default: a quarter of the output interval).")
+              help="Pair steps whose times differ by at most this (default: a quarter of the output interval "
+                   "around each time).")
 @click.option("--spacing", type=float, default=None,
               help="Spacing of the common sampling grid (default: finer than both meshes).")
 @click.option("--rising-bubble", is_flag=True,

@@ -37,6 +37,21 @@ def test_pair_times_default_tolerance_is_a_quarter_of_the_smaller_interval():
     assert len(pair_times(ta, tb)[0]) == 51
 
 
+def test_pair_times_default_tolerance_is_local_for_geometric_output_times():
+    # outputs at t0 2^k (coarsening studies): one tolerance from the median interval paired t = 0.01 with
+    # 0.015, 50 % later (a coarsening length L ~ t^(1/3), Lifshitz and Slyozov 1961, differs by 1.5^(1/3) - 1
+    # = 14 % between them), and 8 with 10, while 1000 and 1024 (2.4 % apart) stayed unpaired
+    pairs, ua, ub = pair_times([0, 0.01, 0.02, 0.04, 0.08, 0.16], [0, 0.015, 0.03, 0.06, 0.12])
+    assert pairs["time_a"].tolist() == [0.0] and ua == [1, 2, 3, 4, 5] and ub == [1, 2, 3, 4]
+    pairs, _, _ = pair_times([0] + [2.0**k for k in range(11)], [0, 1, 10, 100, 1000])
+    # around 1024 A writes every 256 to 512, around 1000 B every 90 to 900: a quarter of the smaller
+    # medians (384, 495) is 96 > 24; around 8 (intervals 2 to 16) and 10 (1 to 900) it is 1.5 < 2
+    assert pairs[["time_a", "time_b"]].values.tolist() == [[0, 0], [1, 1], [1024, 1000]]
+    # a steady interval: the median of every interval, as before (a quarter of 0.1 pairs 0.12 with 0.1)
+    pairs, _, _ = pair_times([0, 0.1, 0.2, 0.3], [0, 0.12, 0.21, 0.30])
+    assert pairs["time_b"].tolist() == [0, 0.12, 0.21, 0.30]
+
+
 def test_pair_times_one_to_one_and_series_labels():
     a = pd.Series([0.0, 1.0, 1.015, 2.0], index=[10, 11, 12, 13])
     b = pd.Series([0.0, 1.01, 3.0], index=[5, 6, 7])

@@ -61,8 +61,22 @@ def _median_interval(t: np.ndarray) -> float:
     return float(np.median(d)) if d.size else np.nan
 
 
-#: the default time tolerance of :func:`pair_times`, as a share of the smaller median output interval
-#: (our threshold)
+def _local_intervals(t: np.ndarray) -> np.ndarray:
+    """The output interval around each time of ``t``: the median of the (up to) four intervals between the
+    run's distinct times nearest it, two on each side; NaN where the run has fewer than two distinct times.
+    For outputs at a steady interval it is that interval; for geometric times (t0 2^k) it grows with t."""
+    t = np.asarray(t, dtype=np.float64)
+    distinct = np.unique(t)
+    if distinct.size < 2:
+        return np.full(t.shape, np.nan)
+    gaps = np.diff(distinct)  # gaps[j] lies between distinct[j] and distinct[j + 1]
+    around = np.searchsorted(distinct, t)[:, None] + np.arange(-2, 2)[None, :]
+    inside = (around >= 0) & (around < gaps.size)
+    return np.nanmedian(np.where(inside, gaps[np.clip(around, 0, gaps.size - 1)], np.nan), axis=1)
+
+
+#: the default time tolerance of :func:`pair_times`, as a share of the smaller of the two runs' output
+#: intervals around the paired times (our threshold)
 PAIR_SHARE = 0.25
 
 
@@ -75,12 +89,15 @@ def pair_times(times_a, times_b, *, tolerance: float | None = None):
         Output times of each run. A Series' index gives the step labels,
         otherwise steps are numbered 0, 1, ...
     tolerance : float, optional, in time units
-        Largest accepted time difference; default a quarter of the smaller median
-        output interval of the two runs (exact matches only when neither run
-        has two distinct times): outputs written at the first solver step past
-        each output time pair while the solver step is under a quarter of the
-        interval; outputs at other times do not (half an interval paired t = 0.1
-        with 0.15, and the shapes' difference was the flow's motion).
+        Largest accepted time difference; default, for each candidate pair, a quarter
+        of the smaller of the two runs' output intervals around its times (the median
+        of the four intervals nearest each time, two on each side; exact matches only
+        when neither run has two distinct times): outputs written at the first solver
+        step past each output time pair while the solver step is under a quarter of the
+        interval; outputs at other times do not (half an interval paired t = 0.1 with
+        0.15, and the shapes' difference was the flow's motion). Local, so that outputs
+        at geometric times (t0 2^k) pair alike early and late: one tolerance from the
+        median interval paired t = 0.01 with 0.015 and left 1000 and 1024 unpaired.
 
     Returns
     -------
@@ -106,11 +123,8 @@ def pair_times(times_a, times_b, *, tolerance: float | None = None):
     if tolerance is not None and not (np.isfinite(tolerance) and tolerance >= 0):
         raise OptionError(f"time tolerance must be a non-negative number, found {tolerance!r}",
                           fix="give it in the runs' time units")
-    if tolerance is None:
-        intervals = [v for v in (_median_interval(ta), _median_interval(tb)) if np.isfinite(v)]
-        tolerance = PAIR_SHARE * min(intervals) if intervals else 0.0
     scale = max(float(np.abs(np.concatenate([ta, tb, [1.0]])).max()), 1.0)
-    tol = float(tolerance) + 1e-12 * scale  # round-off in written times
+    round_off = 1e-12 * scale  # round-off in written times
     empty = pd.DataFrame({"step_a": sa[:0], "step_b": sb[:0], "time_a": ta[:0], "time_b": tb[:0]})
     if ta.size == 0 or tb.size == 0:
         return empty, sa.tolist(), sb.tolist()
@@ -131,6 +145,11 @@ def pair_times(times_a, times_b, *, tolerance: float | None = None):
     a_of_b = order_a[nearest(sorted_a, tb)]
     ia = np.arange(ta.size)
     mutual = a_of_b[b_of_a] == ia
+    if tolerance is None:  # a quarter of the smaller of the two runs' intervals around the pair's times
+        local = np.fmin(_local_intervals(ta), _local_intervals(tb)[b_of_a])
+        tol = PAIR_SHARE * np.where(np.isfinite(local), local, 0.0) + round_off
+    else:
+        tol = float(tolerance) + round_off
     close = np.abs(ta - tb[b_of_a]) <= tol
     keep = mutual & close
     ia, ib = ia[keep], b_of_a[keep]

@@ -15,7 +15,7 @@ from ._html import Page
 from ._drawing import save_figures
 from ._measure_report import CAUTION, kind_words, manifest, verdict_lines
 
-__all__ = ["write_compare_report", "compare_figures", "steps_file_name"]
+__all__ = ["write_compare_report", "compare_figures", "steps_file_name", "partial_pairs"]
 
 
 def steps_file_name(label: str) -> str:
@@ -38,6 +38,8 @@ def compare_figures(result, *, overlays, level: float, time_origin: str | None =
     figures = []
     for k, o in enumerate(overlays):
         when = time_words(o["time"], time_origin)
+        if o.get("time_b") is not None and o["time_b"] != o["time"]:  # the second run's own time of the pair
+            when += f" ({labels[1]}: {time_words(o['time_b'], time_origin)})"
         figures.append((f"overlay_{k}", f"Both interfaces at {when}",
                         plots.plot_interface_overlay(o["mismatch"], o["extent"], o["segments_a"], o["segments_b"],
                                                      labels=labels, axis_names=o["axis_names"], level=level,
@@ -112,6 +114,8 @@ def write_compare_report(out, result, *, specs, overlays, inputs: list, version:
     findings = _compare_findings(result)
     page.items(findings or ["no flags in either run and no failed reference check"],
                css="flag" if findings else "ok")
+    if getattr(result, "notes", None):  # the comparison's notes: start times, paired times apart
+        page.items(list(result.notes), css="note")
     unchecked = [f"{label}: {line}" for label, run in zip(result.labels, (result.first, result.second))
                  for line in verdict_lines(getattr(run, "standing_checks", None) or [], True)]
     if unchecked:  # each run's standing checks not made, and why
@@ -136,9 +140,7 @@ def write_compare_report(out, result, *, specs, overlays, inputs: list, version:
         if notes:  # why a check is not applicable: the run does not cover its quantity
             page.items(notes)
     page.heading("Shape and metric comparison")
-    cols = [c for c in ("time", "mismatch_volume", "dice", "hausdorff", "hausdorff_95", "mean_distance",
-                        "field_difference") if c in result.comparison]
-    page.table(result.comparison[cols] if cols else result.comparison)
+    page.table(_shape_table(result.comparison))
     if pngs:
         page.heading("Plots")
         page.figures(pngs)
@@ -174,10 +176,40 @@ def write_compare_report(out, result, *, specs, overlays, inputs: list, version:
                                                  zip(result.labels, (result.first, result.second))},
                               "time_origin": dict(time_origins or {}),
                               "paired_by": getattr(result, "paired_by", "time"),
-                              "comparison_warnings": list(getattr(result, "warnings", []))},
+                              "comparison_warnings": list(getattr(result, "warnings", [])),
+                              "comparison_notes": list(getattr(result, "notes", None) or [])},
                       outputs=written, timings={"total_seconds": round(time.time() - started, 3)})
     atomic_write_json(os.path.join(out, "manifest.json"), record)
     mark_complete(out)
+
+
+#: a pair compared over a volume this share below the largest pair's is partial (our threshold)
+PARTIAL_SHARE = 0.01
+
+
+def partial_pairs(comparison) -> np.ndarray:
+    """A mask of comparison.csv's rows compared over a volume more than :data:`PARTIAL_SHARE` below the
+    largest pair's (``compared_volume``: the samples finite in both runs)."""
+    if comparison is None or "compared_volume" not in comparison or not len(comparison):
+        return np.zeros(0 if comparison is None else len(comparison), dtype=bool)
+    volume = comparison["compared_volume"].to_numpy(dtype=float)
+    largest = np.nanmax(volume) if np.isfinite(volume).any() else np.nan
+    return np.isfinite(volume) & (volume < (1.0 - PARTIAL_SHARE) * largest)
+
+
+def _shape_table(comparison):
+    """The report's shape table: the first run's time and the second's (``time_b``), the shape measures,
+    and ``compared`` marking a pair compared over part of the domain ('partial: N % left out')."""
+    cols = [c for c in ("time", "time_b", "mismatch_volume", "dice", "hausdorff", "hausdorff_95", "mean_distance",
+                        "field_difference") if c in comparison]
+    table = comparison[cols] if cols else comparison
+    partial = partial_pairs(comparison)
+    if partial.any():
+        volume = comparison["compared_volume"].to_numpy(dtype=float)
+        share = 100 * (1 - volume / np.nanmax(volume))
+        table = table.assign(compared=[f"partial: {s:.3g} % left out" if p else "whole"
+                                       for p, s in zip(partial, share)])
+    return table
 
 
 def _plain(options: dict) -> dict:

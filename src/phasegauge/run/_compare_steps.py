@@ -222,7 +222,7 @@ def paired_shapes(pairs, results_a, results_b, plan: SamplingPlan, *, series, op
         rows.append({"step_a": int(row.step_a), "step_b": int(row.step_b),
                      **{name: value for name, value in shape.items() if np.isscalar(value)}})
         if k in overlay_pairs:
-            overlays.append({"time": float(row.time_a),
+            overlays.append({"time": float(row.time_a), "time_b": float(row.time_b),
                              **overlay_arrays(values_a, values_b, grid, level=level, axis_names=names)})
     return rows, overlays
 

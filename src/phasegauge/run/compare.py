@@ -76,6 +76,7 @@ class CompareResult:
     paired_by: str = "time"
     warnings: list = field(default_factory=list)
     band_excess: dict | None = None  # a diffuse run against a sharp one: its band's volume (run._compare_kinds)
+    notes: list = field(default_factory=list)  # the comparison's notes: start times, paired times apart
 
 
 def compare_runs(first: RunSpec, second: RunSpec, *, out=None, overwrite: bool = False, level: float = 0.5,
@@ -94,7 +95,7 @@ def compare_runs(first: RunSpec, second: RunSpec, *, out=None, overwrite: bool =
         Indicator level of the interfaces.
     time_tolerance : float, optional
         Steps pair when their times differ by at most this (default: a quarter of the
-        smaller median output interval).
+        smaller of the two runs' output intervals around the pair's times).
     spacing : float, optional
         Spacing of the common sampling grid (default: finer than both meshes).
     reference_table : str, optional
@@ -230,6 +231,7 @@ def _compare_runs(first, second, *, out, overwrite, level, time_tolerance, spaci
     for r in res_a.results + res_b.results:
         r.extra = None  # the sampled fields are used up
     comparison = comparison_table(metrics, pd.DataFrame(shapes) if shapes else None, labels)
+    found, notes = _comparison_checks(told, times_a, times_b, pairs, comparison, labels, time_tolerance)
     drop_stats = cmp.compare_droplet_statistics(res_a.droplets, res_b.droplets, pairs)
     checks = []
     lost = skipped_times(res_a)
@@ -250,7 +252,8 @@ def _compare_runs(first, second, *, out, overwrite, level, time_tolerance, spaci
                            unpaired={labels[0]: list(unpaired_a), labels[1]: list(unpaired_b)},
                            droplet_statistics=drop_stats, reference_checks=reference_checks,
                            first=res_a, second=res_b, labels=labels, paired_by="step number" if told else "time",
-                           warnings=told, band_excess=band_excess(res_a, res_b, pairs, labels, periodic))
+                           warnings=told + found, band_excess=band_excess(res_a, res_b, pairs, labels, periodic),
+                           notes=notes)
     if out is not None:
         from ..report._compare_report import write_compare_report
         from ._report_data import package_version, series_input_files
@@ -388,6 +391,19 @@ def _near_misses(times_a, times_b, unpaired_a, unpaired_b) -> None:
             f"of the second (up to {near.max():.3g} apart; the default tolerance is a quarter of the interval, "
             f"{PAIR_SHARE * interval:.3g}): if they were written for the same times by a long solver step, "
             f"pair them with --time-tolerance {1.01 * near.max():.3g}"), stacklevel=4)
+
+
+def _comparison_checks(told, times_a, times_b, pairs, comparison, labels, time_tolerance) -> tuple:
+    """(findings, notes) on the pairing's times (not where the steps are paired by number: their times are
+    numbers) and on the shape measures (:mod:`._compare_checks`); each finding warned of."""
+    from ._compare_checks import shape_checks, time_checks
+
+    found, notes = ([], []) if told else time_checks(times_a.to_numpy(), times_b.to_numpy(), pairs, labels,
+                                                     time_tolerance)
+    found = found + shape_checks(comparison, labels)
+    for said in found:
+        warnings.warn(PhasegaugeWarning(said), stacklevel=4)
+    return found, notes
 
 
 def _numbered_pairing(origins: dict, runs, labels, totals) -> list:
