@@ -20,6 +20,9 @@ PLATEAU_BAND = 0.01
 #: PLATEAU_BAND of the bulk (without; our threshold)
 REACH_CELLS = 4.0
 UNREACHED_SHARE = 0.6
+#: the points within this of a bulk inside 0.1 < c < 0.9 are its own, not the profile's, where the other bulk lies
+#: outside (:func:`_contour_reach`; our threshold: five spreads of noise of 1 % of a jump of 1)
+_OWN_POINTS = 0.05
 
 
 def bulk_plateaus(c_point: np.ndarray, level: float, mesh=None, *, extremes=None) -> tuple[float, float, float]:
@@ -188,8 +191,10 @@ def _contour_reach(c_point: np.ndarray, level: float, mesh, extremes=None, *, bu
     back (cells and centroids stand for the contour: half a cell of error, within the REACH_CELLS floor). Where
     both ``bulks`` (the two sides' bulk values as found so far) lie within 0.1 < c < 0.9 (a partially miscible
     pair at 0.32 and 0.66), c and the level are first taken as (c - low) / (high - low): else the bulks' own points
-    are read as profile, and their distance to the contour as eps (0.15 for 0.01). With one bulk at 0 (or 1) the
-    other may be the crest of a bump that never reached its bulk, which that scale would read as a bulk.
+    are read as profile, and their distance to the contour as eps (0.15 for 0.01). With one bulk outside (0.08 or
+    0.95 beside 0.6 or 0.3) the other may be the crest of a bump that never reached its bulk, which that scale would
+    read as a bulk: c stays raw, and only the points within 0.05 of the bulk inside (its own values and their
+    noise) are left out of the profile. A crest holds few points that near it and stays within reach.
     """
     from scipy.spatial import cKDTree
 
@@ -201,11 +206,17 @@ def _contour_reach(c_point: np.ndarray, level: float, mesh, extremes=None, *, bu
         return None
     tree = cKDTree(mesh.cell_centroids[crossed])
     low, high = bulks
+    raw = c
     if 0.1 < low < high < 0.9:  # both bulks inside the ramp: read between them
         c, level = (c - low) / (high - low), (level - low) / (high - low)
     with np.errstate(divide="ignore", invalid="ignore"):
         logit = np.log(c / (1.0 - c)) - np.log(np.clip(level, 0.01, 0.99) / (1.0 - np.clip(level, 0.01, 0.99)))
-    ramp = np.flatnonzero((c > 0.1) & (c < 0.9) & (np.abs(logit) > 0.4))  # 0.4: c 0.1 off the level at 0.5
+    ramp = (c > 0.1) & (c < 0.9) & (np.abs(logit) > 0.4)  # 0.4: c 0.1 off the level at 0.5
+    if not 0.1 < low < high < 0.9:  # a bulk inside 0.1 < c < 0.9 beside one outside: its own points are no profile
+        for bulk in (low, high):
+            if 0.1 < bulk < 0.9:
+                ramp &= np.abs(raw - bulk) >= _OWN_POINTS
+    ramp = np.flatnonzero(ramp)
     eps = 0.0
     if ramp.size:
         eps = float(np.median(tree.query(mesh.coordinates[ramp])[0] / np.abs(logit[ramp])))
