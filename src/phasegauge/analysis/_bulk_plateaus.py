@@ -193,7 +193,7 @@ def _contour_reach(c_point: np.ndarray, level: float, mesh, extremes=None, *, bu
     pair at 0.32 and 0.66), c and the level are first taken as (c - low) / (high - low): else the bulks' own points
     are read as profile, and their distance to the contour as eps (0.15 for 0.01). With one bulk outside (0.08 or
     0.95 beside 0.6 or 0.3) the other may be the crest of a bump that never reached its bulk, which that scale would
-    read as a bulk: c stays raw, and only the points within 0.05 of the bulk inside (its own values and their
+    read as a bulk: c stays raw, and only the points within 0.05 of either bulk (their own values and their
     noise) are left out of the profile. A crest holds few points that near it and stays within reach.
     """
     from scipy.spatial import cKDTree
@@ -212,10 +212,9 @@ def _contour_reach(c_point: np.ndarray, level: float, mesh, extremes=None, *, bu
     with np.errstate(divide="ignore", invalid="ignore"):
         logit = np.log(c / (1.0 - c)) - np.log(np.clip(level, 0.01, 0.99) / (1.0 - np.clip(level, 0.01, 0.99)))
     ramp = (c > 0.1) & (c < 0.9) & (np.abs(logit) > 0.4)  # 0.4: c 0.1 off the level at 0.5
-    if not 0.1 < low < high < 0.9:  # a bulk inside 0.1 < c < 0.9 beside one outside: its own points are no profile
-        for bulk in (low, high):
-            if 0.1 < bulk < 0.9:
-                ramp &= np.abs(raw - bulk) >= _OWN_POINTS
+    if not 0.1 < low < high < 0.9:  # each bulk's own points and their noise are no profile (0.6 beside 0.08,
+        for bulk in (low, high):  # and 0.08's noise past 0.1)
+            ramp &= np.abs(raw - bulk) >= _OWN_POINTS
     ramp = np.flatnonzero(ramp)
     eps = 0.0
     if ramp.size:
