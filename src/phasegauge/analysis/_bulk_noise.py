@@ -14,7 +14,7 @@ import numpy as np
 from ..model.mesh import Mesh
 from ._width_integrals import _HIGH, _LOW
 
-__all__ = ["bulk_spread", "beyond_reach_points", "NOISE_EDGE_SPREADS", "TOO_NOISY"]
+__all__ = ["bulk_spread", "beyond_reach_points", "NOISE_EDGE_SPREADS", "TOO_NOISY", "SPREAD_SAMPLE"]
 
 #: the band's own points are told from the bulk's noise where the band edge lies within this many bulk
 #: spreads of the bulk (a spread above 1.25 % of the jump; below it, fewer than 3e-5 of the bulk's points
@@ -22,7 +22,11 @@ __all__ = ["bulk_spread", "beyond_reach_points", "NOISE_EDGE_SPREADS", "TOO_NOIS
 NOISE_EDGE_SPREADS = 4.0
 #: a bulk spread beyond this share of the jump is too large to tell the interface's band from the noise
 #: (our threshold: the band width 10 % wide and more on a tanh drop and slab in our check)
-TOO_NOISY = 0.04
+TOO_NOISY = 0.03
+#: a side's spread counts with at least this many values (the scaled MAD of n normal values scatters by about
+#: 1.17 / sqrt(n) of itself, 4 % at 1000: Rousseeuw & Croux 1993; our threshold); where neither side holds as
+#: many, both sides' deviations from their own medians are pooled
+SPREAD_SAMPLE = 1000
 #: the bulk's values are read within this of their bulk (0 or 1, rescaled)
 _BULK_REACH = 0.25
 
@@ -42,15 +46,19 @@ def bulk_spread(u: np.ndarray, level: float) -> float:
     float
         1.4826 times the median absolute deviation about their median of the values below
         ``level`` within 0.25 of 0, and of those above within 0.25 of 1 (the scaled MAD: the
-        standard deviation of normal noise); 0 where a side holds no such value.
+        standard deviation of normal noise), of the sides holding at least :data:`SPREAD_SAMPLE`
+        such values; where neither does, of both sides' deviations from their own medians
+        together (a few dozen points inside a small drop read their profile's tail and their
+        own sampling scatter, not the noise); 0 where no side holds such a value.
     """
-    spreads = [0.0]
     finite = u[np.isfinite(u)]
-    for side in (finite[(finite < level) & (np.abs(finite) < _BULK_REACH)],
-                 finite[(finite > level) & (np.abs(finite - 1.0) < _BULK_REACH)]):
-        if side.size:
-            spreads.append(1.4826 * float(np.median(np.abs(side - np.median(side)))))
-    return max(spreads)
+    deviations = [side - np.median(side) for side in (
+        finite[(finite < level) & (np.abs(finite) < _BULK_REACH)],
+        finite[(finite > level) & (np.abs(finite - 1.0) < _BULK_REACH)]) if side.size]
+    if not deviations:
+        return 0.0
+    sampled = [d for d in deviations if d.size >= SPREAD_SAMPLE] or [np.concatenate(deviations)]
+    return max(1.4826 * float(np.median(np.abs(d))) for d in sampled)
 
 
 def beyond_reach_points(mesh: Mesh, u: np.ndarray, level: float) -> tuple[np.ndarray, np.ndarray]:

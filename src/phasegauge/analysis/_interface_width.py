@@ -154,7 +154,9 @@ class PreparedWidths:
 
         The spread is read first over every value near a bulk (a smooth profile's own values count in
         it too: a small drop with no bulk inside), and where that reaches the band edge again over the
-        values beyond reach alone, which must reach it as well; beyond :data:`TOO_NOISY` of the jump it warns.
+        values beyond reach alone, which must reach it as well. It warns where the spread of the point values
+        beyond reach, which the widths read (a cell's noise reaches the points averaged over its neighbours:
+        about half of it in 2D), exceeds :data:`TOO_NOISY` of the jump; the cells' spread only leaves out.
         """
         low, high, _ = self.plateaus
         u = (self.c_point - low) / (high - low)
@@ -168,10 +170,11 @@ class PreparedWidths:
         beyond, near = beyond_reach_points(mesh, self.clipped, level)
         if not near.any():  # no crossing to reach from
             return None
-        spread = max(bulk_spread(u[beyond], level), 0.0 if cells is None else bulk_spread(cells[~near], level))
-        if spread > TOO_NOISY:
+        read = bulk_spread(u[beyond], level)  # the point values the widths read: the warning's
+        spread = max(read, 0.0 if cells is None else bulk_spread(cells[~near], level))
+        if read > TOO_NOISY:
             warnings.warn(PhasegaugeWarning(
-                f"the bulk values scatter by {100 * spread:.1f} % of the jump between the phases "
+                f"the bulk values scatter by {100 * read:.1f} % of the jump between the phases "
                 f"({high - low:.3g}; sd as scaled MAD), beyond the {100 * TOO_NOISY:.0f} % up to which the "
                 "interface widths are told from such noise: they read high; average the field (over time, "
                 "or over more particles) before measuring, or read no width before the phases separate"), stacklevel=3)
