@@ -20,12 +20,13 @@ __all__ = ["bulk_spread", "beyond_reach_points", "NOISE_EDGE_SPREADS", "TOO_NOIS
 #: spreads of the bulk (a spread above 1.25 % of the jump; below it, fewer than 3e-5 of the bulk's points
 #: reach the band edge, the normal tail beyond 4 spreads; our threshold)
 NOISE_EDGE_SPREADS = 4.0
-#: a bulk spread beyond this share of the jump is too large to tell the interface's band from the noise
-#: (our threshold: the band width 10 % wide and more on a tanh drop and slab in our check)
+#: a bulk spread of the point values the widths read beyond this share of the jump is too large to tell the
+#: interface's band from the noise (our threshold: on tanh drops with noise on points the band width reads within
+#: 2.3 % of its noise-free value at 3 %, 4-5 % wide in 3D at 3.5 % and 10-15 % at 4 %)
 TOO_NOISY = 0.03
-#: a side's spread counts with at least this many values (the scaled MAD of n normal values scatters by about
-#: 1.17 / sqrt(n) of itself, 4 % at 1000: Rousseeuw & Croux 1993; our threshold); where neither side holds as
-#: many, both sides' deviations from their own medians are pooled
+#: a side's spread counts with at least this many values (our threshold: the scaled MAD of n normal values
+#: scatters by about 1.17 / sqrt(n) of itself, 4 % at 1000, from its 37 % efficiency, Rousseeuw & Croux 1993,
+#: from memory); where neither side holds as many, both sides' deviations from their own medians are pooled
 SPREAD_SAMPLE = 1000
 #: the bulk's values are read within this of their bulk (0 or 1, rescaled)
 _BULK_REACH = 0.25
