@@ -32,7 +32,7 @@ SPREAD_SAMPLE = 1000
 _BULK_REACH = 0.25
 
 
-def bulk_spread(u: np.ndarray, level: float) -> float:
+def bulk_spread(u: np.ndarray, level: float, *, least: int = SPREAD_SAMPLE) -> float:
     """The larger of the two phases' spreads about their bulk, as a share of the jump.
 
     Parameters
@@ -41,14 +41,16 @@ def bulk_spread(u: np.ndarray, level: float) -> float:
         Values rescaled to the bulk values, (c - low) / (high - low), not clipped.
     level : float
         The contour level on that scale.
+    least : int
+        The fewest values a side's spread counts with (1: the larger side's, however few).
 
     Returns
     -------
     float
         1.4826 times the median absolute deviation about their median of the values below
         ``level`` within 0.25 of 0, and of those above within 0.25 of 1 (the scaled MAD: the
-        standard deviation of normal noise), of the sides holding at least :data:`SPREAD_SAMPLE`
-        such values; where neither does, of both sides' deviations from their own medians
+        standard deviation of normal noise), of the sides holding at least ``least`` such values
+        (:data:`SPREAD_SAMPLE`); where neither does, of both sides' deviations from their own medians
         together (a few dozen points inside a small drop read their profile's tail and their
         own sampling scatter, not the noise); 0 where no side holds such a value.
     """
@@ -58,7 +60,7 @@ def bulk_spread(u: np.ndarray, level: float) -> float:
         finite[(finite > level) & (np.abs(finite - 1.0) < _BULK_REACH)]) if side.size]
     if not deviations:
         return 0.0
-    sampled = [d for d in deviations if d.size >= SPREAD_SAMPLE] or [np.concatenate(deviations)]
+    sampled = [d for d in deviations if d.size >= least] or [np.concatenate(deviations)]
     return max(1.4826 * float(np.median(np.abs(d))) for d in sampled)
 
 

@@ -164,14 +164,17 @@ class PreparedWidths:
         if getattr(indicator, "location", None) == "cell":  # the solver's own values: their noise in full
             cells = (np.asarray(indicator.cell, dtype=np.float64) - low) / (high - low)
         level = self.width_level
-        spread = max(bulk_spread(u, level), 0.0 if cells is None else bulk_spread(cells, level))
+        # the leave-out reads every side, however few its values (leaving out does no harm); the warning the
+        # sides with enough of them
+        spread = max(bulk_spread(u, level, least=1), 0.0 if cells is None else bulk_spread(cells, level, least=1))
         if not NOISE_EDGE_SPREADS * spread > _LOW:
             return None
         beyond, near = beyond_reach_points(mesh, self.clipped, level)
         if not near.any():  # no crossing to reach from
             return None
         read = bulk_spread(u[beyond], level)  # the point values the widths read: the warning's
-        spread = max(read, 0.0 if cells is None else bulk_spread(cells[~near], level))
+        spread = max(bulk_spread(u[beyond], level, least=1),
+                     0.0 if cells is None else bulk_spread(cells[~near], level, least=1))
         if read > TOO_NOISY:
             warnings.warn(PhasegaugeWarning(
                 f"the bulk values scatter by {100 * read:.1f} % of the jump between the phases "
