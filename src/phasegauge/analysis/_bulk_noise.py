@@ -30,6 +30,10 @@ TOO_NOISY = 0.03
 SPREAD_SAMPLE = 1000
 #: the bulk's values are read within this of their bulk (0 or 1, rescaled)
 _BULK_REACH = 0.25
+#: a side of more values is read at this many, evenly spaced through it (the scaled MAD of 65 536 normal values
+#: scatters by about 0.5 % of itself, by the 1.17 / sqrt(n) above; the whole side's medians took 50-80 ms a step
+#: of 1M points, a quarter of a later step's time)
+_SIDE_VALUES = 1 << 16
 
 
 def bulk_spread(u: np.ndarray, level: float, *, least: int = SPREAD_SAMPLE) -> float:
@@ -49,15 +53,17 @@ def bulk_spread(u: np.ndarray, level: float, *, least: int = SPREAD_SAMPLE) -> f
     float
         1.4826 times the median absolute deviation about their median of the values below
         ``level`` within 0.25 of 0, and of those above within 0.25 of 1 (the scaled MAD: the
-        standard deviation of normal noise), of the sides holding at least ``least`` such values
+        standard deviation of normal noise; a side of more than 65 536 values read at that many,
+        evenly spaced), of the sides holding at least ``least`` such values
         (:data:`SPREAD_SAMPLE`); where neither does, of both sides' deviations from their own medians
         together (a few dozen points inside a small drop read their profile's tail and their
         own sampling scatter, not the noise); 0 where no side holds such a value.
     """
-    finite = u[np.isfinite(u)]
-    deviations = [side - np.median(side) for side in (
-        finite[(finite < level) & (np.abs(finite) < _BULK_REACH)],
-        finite[(finite > level) & (np.abs(finite - 1.0) < _BULK_REACH)]) if side.size]
+    u = np.asarray(u)  # NaN fails every comparison: no finite copy is needed
+    sides = (u[(u > -_BULK_REACH) & (u < min(level, _BULK_REACH))],
+             u[(u > max(level, 1.0 - _BULK_REACH)) & (u < 1.0 + _BULK_REACH)])
+    sides = [side[::-(-side.size // _SIDE_VALUES)] for side in sides if side.size]  # evenly spaced
+    deviations = [side - np.median(side) for side in sides]
     if not deviations:
         return 0.0
     sampled = [d for d in deviations if d.size >= least] or [np.concatenate(deviations)]
