@@ -4,7 +4,8 @@ not, paired times that differ, a pair compared over part of the domain, and phas
 Outside references: the times as written (a millisecond is 1/1000 s; a clock offset of 0.05 as written);
 the area of two equal discs' lens, 2 R^2 acos(d / 2R) - (d / 2) sqrt(4 R^2 - d^2) (Weisstein, "Circle-Circle
 Intersection", MathWorld), whence Dice = lens / (pi R^2) and the mismatch 2 (pi R^2 - lens); and the
-Hausdorff distance between two equal circles, their centres' distance (analytic).
+Hausdorff distance between two equal circles, their centres' distance (analytic); and, for two uncorrelated
+50/50 patterns, a recount of the Dice with numpy set operations on a grid both meshes' cells tile.
 """
 
 import json
@@ -16,7 +17,7 @@ import pytest
 
 from phasegauge.errors import PhasegaugeWarning
 from phasegauge.meshgen import grid_mesh, to_meshio
-from phasegauge.run._compare_checks import time_checks
+from phasegauge.run._compare_checks import flipped_dice, time_checks
 from phasegauge.run.compare import RunSpec, compare_runs
 
 R = 0.2
@@ -150,11 +151,55 @@ def test_phases_taken_the_wrong_way_round_are_a_finding(tmp_path):
     assert (result.comparison["dice"] < 0.05).all()
     assert any(m.startswith("the runs appear to measure opposite phases at 2 of 2 pairs") and "--phase-a" in m
                for m in said)
+    # with one run's phase flipped the pair reads the lens of two discs 0.02 apart (MathWorld, above)
+    table = result.comparison
+    flipped = flipped_dice(table["dice"], table["volume_a"], table["volume_b"], table["compared_volume"])
+    assert np.allclose(flipped, _lens(0.02) / (np.pi * R**2), atol=0.01)
     # with --phase-a lower: the lens of two discs 0.02 apart (Dice 0.9364), and no such finding
     result, said, page, manifest = _compare(RunSpec(a, "c", (-1, 1), phase="lower"), RunSpec(b, "c"),
                                             tmp_path / "d")
     assert np.allclose(result.comparison["dice"], _lens(0.02) / (np.pi * R**2), atol=0.005)
     assert not [m for m in said if "opposite phases" in m]
+
+
+def _pattern(n, seed, t):
+    """A 50/50 spinodal-like pattern on n x n cells: noise smoothed over a length 0.05 + 0.1 t (periodic), its
+    median taken off; the phase where it is positive."""
+    from scipy.ndimage import gaussian_filter
+
+    noise = np.random.default_rng(seed).standard_normal((n, n))
+    g = gaussian_filter(noise, (0.05 + 0.1 * t) * n, mode="wrap")
+    return g - np.median(g)
+
+
+def test_two_uncorrelated_half_and_half_patterns_are_not_opposite_phases(tmp_path):
+    # two resolutions of a critical quench, each pattern grown from its own noise, both measuring phi > 0: Dice
+    # 0.41 and the phase volumes filling the domain read as "opposite phases", whose advice (--phase-b lower)
+    # really compares opposite phases
+    times, runs, tiled = [0.0, 0.1], {}, {}
+    for name, n, seed in (("a", 48, 1), ("b", 40, 2)):
+        (tmp_path / name).mkdir()
+        mesh = grid_mesh((n, n))
+        ij = np.floor(mesh.cell_centroids[:, :2] * n).astype(int)
+        lines = ["time,path"]
+        for k, t in enumerate(times):
+            g = _pattern(n, seed, t)
+            phi = np.tanh(g[ij[:, 0], ij[:, 1]] / g.std() * (0.05 + 0.1 * t) / 2 / (np.sqrt(2) * 1.5 / n))
+            to_meshio(mesh, cell_data={"phi": phi}).write(tmp_path / name / f"s_{k}.vtu")
+            lines.append(f"{t},s_{k}.vtu")
+            tiled[name, k] = np.kron(g > 0, np.ones((240 // n, 240 // n), bool))  # 240 = lcm(48, 40)
+        (tmp_path / name / "run.steps").write_text("\n".join(lines) + "\n")
+        runs[name] = RunSpec(str(tmp_path / name / "run.steps"), "phi", (-1, 1))
+    result, said, page, manifest = _compare(runs["a"], runs["b"], tmp_path / "c", periodic=("x", "y"))
+    table = result.comparison
+    flipped = flipped_dice(table["dice"], table["volume_a"], table["volume_b"], table["compared_volume"])
+    for k in range(2):  # the recount with numpy set operations (our tolerances 0.03)
+        a, b = tiled["a", k], tiled["b", k]
+        dice = lambda p, q: 2 * np.count_nonzero(p & q) / (np.count_nonzero(p) + np.count_nonzero(q))
+        assert table["dice"][k] == pytest.approx(dice(a, b), abs=0.03) and table["dice"][k] < 0.5
+        assert flipped[k] == pytest.approx(min(dice(a, ~b), dice(~a, b)), abs=0.03) and flipped[k] < 0.8
+    assert not [m for m in said if "opposite phases" in m]
+    assert not [m for m in manifest["comparison_warnings"] if "opposite phases" in m]
 
 
 def test_paired_times_that_differ_are_shown_and_noted(tmp_path):

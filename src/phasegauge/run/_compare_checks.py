@@ -10,7 +10,7 @@ from __future__ import annotations
 
 import numpy as np
 
-__all__ = ["time_checks", "shape_checks"]
+__all__ = ["time_checks", "shape_checks", "flipped_dice"]
 
 #: time spans that differ by this factor or more suggest different time units (our threshold, as the
 #: lengths' factor of 5 in the report's domain check)
@@ -22,8 +22,11 @@ OPPOSITE_DICE = 0.5
 #: ... while the interfaces lie within this many spacings of the common grid (mean distance; our threshold:
 #: three cells of the finer mesh, the grid's default spacing being half its median cell size) ...
 OPPOSITE_SPACINGS = 6.0
-#: ... and the two phase volumes sum to the compared volume within this share (our threshold)
+#: ... and the two phase volumes sum to the compared volume within this share (our threshold) ...
 OPPOSITE_SHARE = 0.01
+#: ... and taking either run's other phase makes the runs agree: the flipped Dice at least this (our threshold;
+#: two uncorrelated 50/50 patterns read about 0.5 either way, phases taken the wrong way round about 1)
+OPPOSITE_FLIPPED_DICE = 0.8
 
 
 def time_checks(times_a, times_b, pairs, labels, tolerance) -> tuple[list, list]:
@@ -132,10 +135,21 @@ def _when(row) -> str:
     return f"t = {row['time_a']:.6g}, steps {int(row['step_a'])} and {int(row['step_b'])}"
 
 
+def flipped_dice(dice, volume_a, volume_b, compared_volume):
+    """The Dice a pair would read with one run's other phase, the smaller of the two flips, from the pair's
+    own figures: the overlap I = dice (va + vb) / 2; taking B's other phase (volume V - vb) leaves the
+    overlap va - I, so Dice 2 (va - I) / (va + V - vb); taking A's, 2 (vb - I) / (vb + V - va)."""
+    dice, va, vb, whole = (np.asarray(v, dtype=float) for v in (dice, volume_a, volume_b, compared_volume))
+    overlap = 0.5 * dice * (va + vb)
+    with np.errstate(divide="ignore", invalid="ignore"):
+        return np.fmin(2 * (va - overlap) / (va + whole - vb), 2 * (vb - overlap) / (vb + whole - va))
+
+
 def shape_checks(comparison, labels) -> list:
     """Findings on the shape measures of comparison.csv: pairs compared over part of the domain, and
     pairs whose phases look opposite (Dice below :data:`OPPOSITE_DICE` while the interfaces lie within
-    :data:`OPPOSITE_SPACINGS` grid spacings and the two phase volumes fill the compared volume)."""
+    :data:`OPPOSITE_SPACINGS` grid spacings, the two phase volumes fill the compared volume, and either
+    run's other phase would give a Dice of :data:`OPPOSITE_FLIPPED_DICE` or more)."""
     if comparison is None or not len(comparison) or "time_a" not in comparison:
         return []
     from ..report._compare_report import partial_pairs
@@ -156,16 +170,17 @@ def shape_checks(comparison, labels) -> list:
     needed = ("dice", "mean_distance", "grid_spacing", "volume_a", "volume_b", "compared_volume")
     if all(c in comparison for c in needed):
         t = {c: comparison[c].to_numpy(dtype=float) for c in needed}
+        flipped = flipped_dice(t["dice"], t["volume_a"], t["volume_b"], t["compared_volume"])
         opposite = ((t["dice"] < OPPOSITE_DICE) & (t["mean_distance"] <= OPPOSITE_SPACINGS * t["grid_spacing"])
                     & (np.abs(t["volume_a"] + t["volume_b"] - t["compared_volume"])
-                       <= OPPOSITE_SHARE * t["compared_volume"]))
+                       <= OPPOSITE_SHARE * t["compared_volume"]) & (flipped >= OPPOSITE_FLIPPED_DICE))
         if opposite.any():
             k = int(np.flatnonzero(opposite)[0])
             found.append(
                 f"the runs appear to measure opposite phases at {int(opposite.sum())} of {len(comparison)} pairs "
-                f"({_when(comparison.iloc[k])}: dice {t['dice'][k]:.3g}, yet the interfaces lie "
-                f"{t['mean_distance'][k] / t['grid_spacing'][k]:.2g} grid spacings apart on average and the phase "
-                f"volumes {t['volume_a'][k]:.4g} + {t['volume_b'][k]:.4g} fill the compared volume "
+                f"({_when(comparison.iloc[k])}: dice {t['dice'][k]:.3g}, {flipped[k]:.3g} with one run's phase "
+                f"flipped; interfaces {t['mean_distance'][k] / t['grid_spacing'][k]:.2g} grid spacings apart on "
+                f"average, phase volumes {t['volume_a'][k]:.4g} + {t['volume_b'][k]:.4g} filling the compared volume "
                 f"{t['compared_volume'][k]:.4g}): check --phase-a, --phase-b (recipe: phase) and the ranges; a phase "
                 "field's drop at -1 is --phase-a lower")
     return found
