@@ -104,8 +104,8 @@ def test_time_checks_by_themselves():
     pairs = pd.DataFrame({"time_a": [0.0, 0.1], "time_b": [0.0, 0.12]})
     found, notes = time_checks([0, 0.1, 0.2], [0, 0.12, 0.2], pairs, ("a", "b"), None)
     assert found == [] and len(notes) == 1
-    assert notes[0].startswith("1 of 2 pairs join times more than 1 % of the output interval apart, the largest "
-                               "0.02 (a t = 0.1 against b t = 0.12, the interval there 0.1)")
+    assert notes[0].startswith("1 of 2 pairs join times more than 10 % of the output interval apart, the largest "
+                               "0.02 (a t = 0.1 against b t = 0.12: 20 % of the interval there 0.1, the longer")
     # one run writing ten times as often over the same span: a note, no finding
     fine, coarse = np.linspace(0, 1, 101), np.linspace(0, 1, 11)
     pairs = pd.DataFrame({"time_a": coarse, "time_b": coarse})
@@ -120,6 +120,44 @@ def test_time_checks_by_themselves():
                                      "0.15): the comparison covers the shorter run's span"]
     found, notes = time_checks(long, 1000 * short, pairs[:1], ("a", "b"), None)
     assert len(found) == 1 and "different time units" in found[0] and "and 1 of their steps pair" in found[0]
+
+
+def test_a_short_run_written_more_often_is_no_time_units_finding():
+    # a long run every 0.1 to t = 1.5 against a short one every 0.025 to 0.25: the long run has three outputs
+    # within the short run's span (0, 0.1, 0.2, as written) and all three pair, yet 3 of the short run's 11
+    # steps read "different time units"
+    from phasegauge.analysis.compare import pair_times
+
+    long, short = np.round(np.arange(0, 1.5001, 0.1), 12), np.round(np.arange(0, 0.25001, 0.025), 12)
+    pairs = pair_times(long, short)[0]
+    assert pairs["time_a"].tolist() == pytest.approx([0, 0.1, 0.2]) and pairs["time_b"].tolist() == pytest.approx(
+        [0, 0.1, 0.2])
+    found, notes = time_checks(long, short, pairs, ("long", "short"), None)
+    assert found == [] and notes == ["the runs' time spans differ by a factor of 6 (long t = 0 to 1.5, short t = 0 "
+                                     "to 0.25): the comparison covers the shorter run's span"]
+    # the short run in milliseconds (0 to 250): only the long run's t = 0 lies within its span, a finding
+    ms = 1000 * short
+    found, notes = time_checks(long, ms, pair_times(long, ms)[0], ("long", "short"), None)
+    assert len(found) == 1 and "different time units" in found[0] and "and 1 of their steps pair" in found[0]
+
+
+def test_outputs_at_adaptive_solver_steps_are_no_note_on_paired_times():
+    # outputs at the first adaptive solver step past each output time (every 0.02 and every 0.01): the gaps
+    # (as written) are at most 0.002, under a tenth of the coarser run's interval 0.02, and raised a note at 9
+    # of 11 pairs; a gap of a fifth of the interval is still named
+    from phasegauge.analysis.compare import pair_times
+
+    a = [0, 0.02161, 0.041616, 0.061031, 0.080572, 0.100108, 0.120767, 0.140817, 0.160091, 0.180098, 0.201998]
+    b = [0, 0.010979, 0.020352, 0.030652, 0.041461, 0.051347, 0.061266, 0.070589, 0.08074, 0.091015, 0.100091,
+         0.110833, 0.120407, 0.131319, 0.140096, 0.151019, 0.161305, 0.170341, 0.181343, 0.191308, 0.200028]
+    pairs = pair_times(a, b)[0]
+    gaps = (pairs["time_a"] - pairs["time_b"]).abs()
+    assert len(pairs) == 11 and gaps.max() == pytest.approx(0.00197) and gaps.max() < 0.1 * 0.02
+    assert time_checks(a, b, pairs, ("a", "b"), None) == ([], [])
+    late = pd.DataFrame({"time_a": [0.0, 0.1, 0.2], "time_b": [0.0, 0.1, 0.22]})
+    found, notes = time_checks([0, 0.1, 0.2], [0, 0.1, 0.22], late, ("a", "b"), None)
+    assert found == [] and len(notes) == 1 and notes[0].startswith(
+        "1 of 3 pairs join times more than 10 % of the output interval apart, the largest 0.02")
 
 
 def test_a_pair_compared_over_half_the_domain_is_named_and_marked(tmp_path):
@@ -212,7 +250,7 @@ def test_paired_times_that_differ_are_shown_and_noted(tmp_path):
     # the Hausdorff distance of each pair is the drop's travel over its gap (equal circles: the centres' distance)
     assert np.allclose(result.comparison["hausdorff"], [0, 0.02, 0.01, 0], atol=0.005)
     assert "<th>time_b</th>" in page and "<td>0.12</td>" in page
-    note = "2 of 4 pairs join times more than 1 % of the output interval apart, the largest 0.02 (first t = 0.1 "
-    assert note + "against second t = 0.12, the interval there 0.09)" in page.replace("&#x27;", "'")
+    note = "1 of 4 pairs join times more than 10 % of the output interval apart, the largest 0.02 (first t = 0.1 "
+    assert note + "against second t = 0.12: 20 % of the interval there 0.1" in page.replace("&#x27;", "'")
     assert "Both interfaces at t = 0.2 (second: t = 0.21)" in page
     assert not said

@@ -15,8 +15,10 @@ __all__ = ["time_checks", "shape_checks", "flipped_dice"]
 #: time spans that differ by this factor or more suggest different time units (our threshold, as the
 #: lengths' factor of 5 in the report's domain check)
 TIME_UNITS_FACTOR = 5.0
-#: pairs whose times differ by more than this share of the output interval are named (our threshold)
-GAP_SHARE = 0.01
+#: pairs whose times differ by more than this share of the output interval there (the longer of the two runs')
+#: are named (our threshold: a tenth of the motion between two compared outputs; outputs at the first adaptive
+#: solver step past each output time differ by a few per cent of the interval)
+GAP_SHARE = 0.1
 #: opposite phases: Dice below this (our threshold) ...
 OPPOSITE_DICE = 0.5
 #: ... while the interfaces lie within this many spacings of the common grid (mean distance; our threshold:
@@ -46,12 +48,15 @@ def time_checks(times_a, times_b, pairs, labels, tolerance) -> tuple[list, list]
     Returns
     -------
     findings : list of str
-        Time spans that differ by :data:`TIME_UNITS_FACTOR` or more (other time units) where fewer than
-        half the shorter run's steps pair, and most steps that could pair left unpaired.
+        Time spans that differ by :data:`TIME_UNITS_FACTOR` or more (other time units) where fewer than two
+        of the longer-span run's outputs lie within the shorter run's span (so fewer than two steps could pair),
+        and most steps that could pair left unpaired.
     notes : list of str
-        Time spans that differ by that factor where most of the shorter run's steps pair (a short run);
+        Time spans that differ by that factor where two or more of the longer-span run's outputs lie within
+        the shorter run's span (a short run; whether its steps pair is the check above);
         median output intervals that differ by that factor while the spans agree; runs that start more
-        than the tolerance apart; paired times that differ by more than :data:`GAP_SHARE` of the interval.
+        than the tolerance apart; paired times that differ by more than :data:`GAP_SHARE` of the interval there
+        (the longer of the two runs').
     """
     from ..analysis.compare import PAIR_SHARE, _local_intervals, _median_interval
 
@@ -76,8 +81,13 @@ def time_checks(times_a, times_b, pairs, labels, tolerance) -> tuple[list, list]
     findings, notes = [], []
     spans = (ta[-1] - ta[0], tb[-1] - tb[0])
     said_units = False
-    shorter = (ta, tb)[int(spans[1] < spans[0])]  # a short run whose steps mostly pair is no unit mismatch
-    if min(spans) > 0 and max(spans) / min(spans) >= TIME_UNITS_FACTOR and len(pairs) >= 0.5 * shorter.size:
+    # the steps that could pair: the longer-span run's outputs within the shorter run's span (with the time
+    # tolerance); seconds against milliseconds leave the first alone there, a short run against a long one many
+    k = int(spans[1] < spans[0])
+    shorter, longer = (ta, tb)[k], (ta, tb)[1 - k]
+    end = tolerance if tolerance is not None else PAIR_SHARE * local[k][-1]
+    within = np.count_nonzero((longer >= shorter[0] - tol(0)) & (longer <= shorter[-1] + np.nan_to_num(end)))
+    if min(spans) > 0 and max(spans) / min(spans) >= TIME_UNITS_FACTOR and within >= 2:
         notes.append(
             f"the runs' time spans differ by a factor of {max(spans) / min(spans):.4g} ({a} t = {ta[0]:.6g} to "
             f"{ta[-1]:.6g}, {b} t = {tb[0]:.6g} to {tb[-1]:.6g}): the comparison covers the shorter run's span")
@@ -113,12 +123,13 @@ def time_checks(times_a, times_b, pairs, labels, tolerance) -> tuple[list, list]
 
 
 def _gap_note(pairs, ta, tb, local, labels) -> list:
-    """The note on paired times that differ by more than :data:`GAP_SHARE` of the smaller of the two runs'
-    output intervals around them (``local``: each sorted run's ``ta``, ``tb`` intervals around its times)."""
+    """The note on paired times that differ by more than :data:`GAP_SHARE` of the longer of the two runs'
+    output intervals around them, the interval between two compared outputs (``local``: each sorted run's ``ta``,
+    ``tb`` intervals around its times)."""
     if not len(pairs):
         return []
     time_a, time_b = (pairs[c].to_numpy(dtype=float) for c in ("time_a", "time_b"))
-    interval = np.fmin(local[0][np.clip(np.searchsorted(ta, time_a), 0, ta.size - 1)],
+    interval = np.fmax(local[0][np.clip(np.searchsorted(ta, time_a), 0, ta.size - 1)],
                        local[1][np.clip(np.searchsorted(tb, time_b), 0, tb.size - 1)])
     gap = np.abs(time_a - time_b)
     apart = np.isfinite(interval) & (gap > GAP_SHARE * interval)
@@ -127,7 +138,8 @@ def _gap_note(pairs, ta, tb, local, labels) -> list:
     k = int(np.argmax(np.where(apart, gap, -1.0)))
     return [f"{int(apart.sum())} of {len(pairs)} pairs join times more than {100 * GAP_SHARE:g} % of the output "
             f"interval apart, the largest {gap[k]:.4g} ({labels[0]} t = {time_a[k]:.6g} against {labels[1]} "
-            f"t = {time_b[k]:.6g}, the interval there {interval[k]:.4g}): the shape measures of those pairs include "
+            f"t = {time_b[k]:.6g}: {100 * gap[k] / interval[k]:.2g} % of the interval there {interval[k]:.4g}, the "
+            "longer of the two runs'): the shape measures of those pairs include "
             "the flow's motion over that gap (time_b is in the shape table and comparison.csv)"]
 
 
