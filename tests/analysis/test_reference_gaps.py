@@ -86,7 +86,7 @@ def test_the_bias_on_triangles_holds_at_any_resolution():
     bubble = analytic_bubble(TIMES).assign(volume=np.pi * 0.25 ** 2)
     checks = check_rising_bubble(bubble, cell_size=0.25 / 64, quad_grid=False).set_index("quantity")
     assert checks.loc["min:circularity", "verdict"] == NOT_APPLICABLE
-    assert "measure on a regular grid of quads" in checks.loc["min:circularity", "note"]
+    assert "measure on square cells along the axes" in checks.loc["min:circularity", "note"]
 
 
 def test_the_bias_formula():

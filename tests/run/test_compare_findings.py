@@ -4,7 +4,8 @@ not, paired times that differ, a pair compared over part of the domain, and phas
 Outside references: the times as written (a millisecond is 1/1000 s; a clock offset of 0.05 as written);
 the area of two equal discs' lens, 2 R^2 acos(d / 2R) - (d / 2) sqrt(4 R^2 - d^2) (Weisstein, "Circle-Circle
 Intersection", MathWorld), whence Dice = lens / (pi R^2) and the mismatch 2 (pi R^2 - lens); and the
-Hausdorff distance between two equal circles, their centres' distance (analytic).
+Hausdorff distance between two equal circles, their centres' distance (analytic); and, for two uncorrelated
+50/50 patterns, a recount of the Dice with numpy set operations on a grid both meshes' cells tile.
 """
 
 import json
@@ -16,7 +17,7 @@ import pytest
 
 from phasegauge.errors import PhasegaugeWarning
 from phasegauge.meshgen import grid_mesh, to_meshio
-from phasegauge.run._compare_checks import time_checks
+from phasegauge.run._compare_checks import flipped_dice, time_checks
 from phasegauge.run.compare import RunSpec, compare_runs
 
 R = 0.2
@@ -103,8 +104,8 @@ def test_time_checks_by_themselves():
     pairs = pd.DataFrame({"time_a": [0.0, 0.1], "time_b": [0.0, 0.12]})
     found, notes = time_checks([0, 0.1, 0.2], [0, 0.12, 0.2], pairs, ("a", "b"), None)
     assert found == [] and len(notes) == 1
-    assert notes[0].startswith("1 of 2 pairs join times more than 1 % of the output interval apart, the largest "
-                               "0.02 (a t = 0.1 against b t = 0.12, the interval there 0.1)")
+    assert notes[0].startswith("1 of 2 pairs join times more than 10 % of the output interval apart, the largest "
+                               "0.02 (a t = 0.1 against b t = 0.12: 20 % of the interval there 0.1, the longer")
     # one run writing ten times as often over the same span: a note, no finding
     fine, coarse = np.linspace(0, 1, 101), np.linspace(0, 1, 11)
     pairs = pd.DataFrame({"time_a": coarse, "time_b": coarse})
@@ -119,6 +120,44 @@ def test_time_checks_by_themselves():
                                      "0.15): the comparison covers the shorter run's span"]
     found, notes = time_checks(long, 1000 * short, pairs[:1], ("a", "b"), None)
     assert len(found) == 1 and "different time units" in found[0] and "and 1 of their steps pair" in found[0]
+
+
+def test_a_short_run_written_more_often_is_no_time_units_finding():
+    # a long run every 0.1 to t = 1.5 against a short one every 0.025 to 0.25: the long run has three outputs
+    # within the short run's span (0, 0.1, 0.2, as written) and all three pair, yet 3 of the short run's 11
+    # steps read "different time units"
+    from phasegauge.analysis.compare import pair_times
+
+    long, short = np.round(np.arange(0, 1.5001, 0.1), 12), np.round(np.arange(0, 0.25001, 0.025), 12)
+    pairs = pair_times(long, short)[0]
+    assert pairs["time_a"].tolist() == pytest.approx([0, 0.1, 0.2]) and pairs["time_b"].tolist() == pytest.approx(
+        [0, 0.1, 0.2])
+    found, notes = time_checks(long, short, pairs, ("long", "short"), None)
+    assert found == [] and notes == ["the runs' time spans differ by a factor of 6 (long t = 0 to 1.5, short t = 0 "
+                                     "to 0.25): the comparison covers the shorter run's span"]
+    # the short run in milliseconds (0 to 250): only the long run's t = 0 lies within its span, a finding
+    ms = 1000 * short
+    found, notes = time_checks(long, ms, pair_times(long, ms)[0], ("long", "short"), None)
+    assert len(found) == 1 and "different time units" in found[0] and "and 1 of their steps pair" in found[0]
+
+
+def test_outputs_at_adaptive_solver_steps_are_no_note_on_paired_times():
+    # outputs at the first adaptive solver step past each output time (every 0.02 and every 0.01): the gaps
+    # (as written) are at most 0.002, under a tenth of the coarser run's interval 0.02, and raised a note at 9
+    # of 11 pairs; a gap of a fifth of the interval is still named
+    from phasegauge.analysis.compare import pair_times
+
+    a = [0, 0.02161, 0.041616, 0.061031, 0.080572, 0.100108, 0.120767, 0.140817, 0.160091, 0.180098, 0.201998]
+    b = [0, 0.010979, 0.020352, 0.030652, 0.041461, 0.051347, 0.061266, 0.070589, 0.08074, 0.091015, 0.100091,
+         0.110833, 0.120407, 0.131319, 0.140096, 0.151019, 0.161305, 0.170341, 0.181343, 0.191308, 0.200028]
+    pairs = pair_times(a, b)[0]
+    gaps = (pairs["time_a"] - pairs["time_b"]).abs()
+    assert len(pairs) == 11 and gaps.max() == pytest.approx(0.00197) and gaps.max() < 0.1 * 0.02
+    assert time_checks(a, b, pairs, ("a", "b"), None) == ([], [])
+    late = pd.DataFrame({"time_a": [0.0, 0.1, 0.2], "time_b": [0.0, 0.1, 0.22]})
+    found, notes = time_checks([0, 0.1, 0.2], [0, 0.1, 0.22], late, ("a", "b"), None)
+    assert found == [] and len(notes) == 1 and notes[0].startswith(
+        "1 of 3 pairs join times more than 10 % of the output interval apart, the largest 0.02")
 
 
 def test_a_pair_compared_over_half_the_domain_is_named_and_marked(tmp_path):
@@ -150,11 +189,55 @@ def test_phases_taken_the_wrong_way_round_are_a_finding(tmp_path):
     assert (result.comparison["dice"] < 0.05).all()
     assert any(m.startswith("the runs appear to measure opposite phases at 2 of 2 pairs") and "--phase-a" in m
                for m in said)
+    # with one run's phase flipped the pair reads the lens of two discs 0.02 apart (MathWorld, above)
+    table = result.comparison
+    flipped = flipped_dice(table["dice"], table["volume_a"], table["volume_b"], table["compared_volume"])
+    assert np.allclose(flipped, _lens(0.02) / (np.pi * R**2), atol=0.01)
     # with --phase-a lower: the lens of two discs 0.02 apart (Dice 0.9364), and no such finding
     result, said, page, manifest = _compare(RunSpec(a, "c", (-1, 1), phase="lower"), RunSpec(b, "c"),
                                             tmp_path / "d")
     assert np.allclose(result.comparison["dice"], _lens(0.02) / (np.pi * R**2), atol=0.005)
     assert not [m for m in said if "opposite phases" in m]
+
+
+def _pattern(n, seed, t):
+    """A 50/50 spinodal-like pattern on n x n cells: noise smoothed over a length 0.05 + 0.1 t (periodic), its
+    median taken off; the phase where it is positive."""
+    from scipy.ndimage import gaussian_filter
+
+    noise = np.random.default_rng(seed).standard_normal((n, n))
+    g = gaussian_filter(noise, (0.05 + 0.1 * t) * n, mode="wrap")
+    return g - np.median(g)
+
+
+def test_two_uncorrelated_half_and_half_patterns_are_not_opposite_phases(tmp_path):
+    # two resolutions of a critical quench, each pattern grown from its own noise, both measuring phi > 0: Dice
+    # 0.41 and the phase volumes filling the domain read as "opposite phases", whose advice (--phase-b lower)
+    # really compares opposite phases
+    times, runs, tiled = [0.0, 0.1], {}, {}
+    for name, n, seed in (("a", 48, 1), ("b", 40, 2)):
+        (tmp_path / name).mkdir()
+        mesh = grid_mesh((n, n))
+        ij = np.floor(mesh.cell_centroids[:, :2] * n).astype(int)
+        lines = ["time,path"]
+        for k, t in enumerate(times):
+            g = _pattern(n, seed, t)
+            phi = np.tanh(g[ij[:, 0], ij[:, 1]] / g.std() * (0.05 + 0.1 * t) / 2 / (np.sqrt(2) * 1.5 / n))
+            to_meshio(mesh, cell_data={"phi": phi}).write(tmp_path / name / f"s_{k}.vtu")
+            lines.append(f"{t},s_{k}.vtu")
+            tiled[name, k] = np.kron(g > 0, np.ones((240 // n, 240 // n), bool))  # 240 = lcm(48, 40)
+        (tmp_path / name / "run.steps").write_text("\n".join(lines) + "\n")
+        runs[name] = RunSpec(str(tmp_path / name / "run.steps"), "phi", (-1, 1))
+    result, said, page, manifest = _compare(runs["a"], runs["b"], tmp_path / "c", periodic=("x", "y"))
+    table = result.comparison
+    flipped = flipped_dice(table["dice"], table["volume_a"], table["volume_b"], table["compared_volume"])
+    for k in range(2):  # the recount with numpy set operations (our tolerances 0.03)
+        a, b = tiled["a", k], tiled["b", k]
+        dice = lambda p, q: 2 * np.count_nonzero(p & q) / (np.count_nonzero(p) + np.count_nonzero(q))
+        assert table["dice"][k] == pytest.approx(dice(a, b), abs=0.03) and table["dice"][k] < 0.5
+        assert flipped[k] == pytest.approx(min(dice(a, ~b), dice(~a, b)), abs=0.03) and flipped[k] < 0.8
+    assert not [m for m in said if "opposite phases" in m]
+    assert not [m for m in manifest["comparison_warnings"] if "opposite phases" in m]
 
 
 def test_paired_times_that_differ_are_shown_and_noted(tmp_path):
@@ -167,7 +250,7 @@ def test_paired_times_that_differ_are_shown_and_noted(tmp_path):
     # the Hausdorff distance of each pair is the drop's travel over its gap (equal circles: the centres' distance)
     assert np.allclose(result.comparison["hausdorff"], [0, 0.02, 0.01, 0], atol=0.005)
     assert "<th>time_b</th>" in page and "<td>0.12</td>" in page
-    note = "2 of 4 pairs join times more than 1 % of the output interval apart, the largest 0.02 (first t = 0.1 "
-    assert note + "against second t = 0.12, the interval there 0.09)" in page.replace("&#x27;", "'")
+    note = "1 of 4 pairs join times more than 10 % of the output interval apart, the largest 0.02 (first t = 0.1 "
+    assert note + "against second t = 0.12: 20 % of the interval there 0.1" in page.replace("&#x27;", "'")
     assert "Both interfaces at t = 0.2 (second: t = 0.21)" in page
     assert not said

@@ -10,20 +10,25 @@ from __future__ import annotations
 
 import numpy as np
 
-__all__ = ["time_checks", "shape_checks"]
+__all__ = ["time_checks", "shape_checks", "flipped_dice"]
 
 #: time spans that differ by this factor or more suggest different time units (our threshold, as the
 #: lengths' factor of 5 in the report's domain check)
 TIME_UNITS_FACTOR = 5.0
-#: pairs whose times differ by more than this share of the output interval are named (our threshold)
-GAP_SHARE = 0.01
+#: pairs whose times differ by more than this share of the output interval there (the longer of the two runs')
+#: are named (our threshold: a tenth of the motion between two compared outputs; outputs at the first adaptive
+#: solver step past each output time differ by a few per cent of the interval)
+GAP_SHARE = 0.1
 #: opposite phases: Dice below this (our threshold) ...
 OPPOSITE_DICE = 0.5
 #: ... while the interfaces lie within this many spacings of the common grid (mean distance; our threshold:
 #: three cells of the finer mesh, the grid's default spacing being half its median cell size) ...
 OPPOSITE_SPACINGS = 6.0
-#: ... and the two phase volumes sum to the compared volume within this share (our threshold)
+#: ... and the two phase volumes sum to the compared volume within this share (our threshold) ...
 OPPOSITE_SHARE = 0.01
+#: ... and taking either run's other phase makes the runs agree: the flipped Dice at least this (our threshold;
+#: two uncorrelated 50/50 patterns read about 0.5 either way, phases taken the wrong way round about 1)
+OPPOSITE_FLIPPED_DICE = 0.8
 
 
 def time_checks(times_a, times_b, pairs, labels, tolerance) -> tuple[list, list]:
@@ -43,12 +48,15 @@ def time_checks(times_a, times_b, pairs, labels, tolerance) -> tuple[list, list]
     Returns
     -------
     findings : list of str
-        Time spans that differ by :data:`TIME_UNITS_FACTOR` or more (other time units) where fewer than
-        half the shorter run's steps pair, and most steps that could pair left unpaired.
+        Time spans that differ by :data:`TIME_UNITS_FACTOR` or more (other time units) where fewer than two
+        of the longer-span run's outputs lie within the shorter run's span (so fewer than two steps could pair),
+        and most steps that could pair left unpaired.
     notes : list of str
-        Time spans that differ by that factor where most of the shorter run's steps pair (a short run);
+        Time spans that differ by that factor where two or more of the longer-span run's outputs lie within
+        the shorter run's span (a short run; whether its steps pair is the check above);
         median output intervals that differ by that factor while the spans agree; runs that start more
-        than the tolerance apart; paired times that differ by more than :data:`GAP_SHARE` of the interval.
+        than the tolerance apart; paired times that differ by more than :data:`GAP_SHARE` of the interval there
+        (the longer of the two runs').
     """
     from ..analysis.compare import PAIR_SHARE, _local_intervals, _median_interval
 
@@ -73,8 +81,13 @@ def time_checks(times_a, times_b, pairs, labels, tolerance) -> tuple[list, list]
     findings, notes = [], []
     spans = (ta[-1] - ta[0], tb[-1] - tb[0])
     said_units = False
-    shorter = (ta, tb)[int(spans[1] < spans[0])]  # a short run whose steps mostly pair is no unit mismatch
-    if min(spans) > 0 and max(spans) / min(spans) >= TIME_UNITS_FACTOR and len(pairs) >= 0.5 * shorter.size:
+    # the steps that could pair: the longer-span run's outputs within the shorter run's span (with the time
+    # tolerance); seconds against milliseconds leave the first alone there, a short run against a long one many
+    k = int(spans[1] < spans[0])
+    shorter, longer = (ta, tb)[k], (ta, tb)[1 - k]
+    end = tolerance if tolerance is not None else PAIR_SHARE * local[k][-1]
+    within = np.count_nonzero((longer >= shorter[0] - tol(0)) & (longer <= shorter[-1] + np.nan_to_num(end)))
+    if min(spans) > 0 and max(spans) / min(spans) >= TIME_UNITS_FACTOR and within >= 2:
         notes.append(
             f"the runs' time spans differ by a factor of {max(spans) / min(spans):.4g} ({a} t = {ta[0]:.6g} to "
             f"{ta[-1]:.6g}, {b} t = {tb[0]:.6g} to {tb[-1]:.6g}): the comparison covers the shorter run's span")
@@ -110,12 +123,13 @@ def time_checks(times_a, times_b, pairs, labels, tolerance) -> tuple[list, list]
 
 
 def _gap_note(pairs, ta, tb, local, labels) -> list:
-    """The note on paired times that differ by more than :data:`GAP_SHARE` of the smaller of the two runs'
-    output intervals around them (``local``: each sorted run's ``ta``, ``tb`` intervals around its times)."""
+    """The note on paired times that differ by more than :data:`GAP_SHARE` of the longer of the two runs'
+    output intervals around them, the interval between two compared outputs (``local``: each sorted run's ``ta``,
+    ``tb`` intervals around its times)."""
     if not len(pairs):
         return []
     time_a, time_b = (pairs[c].to_numpy(dtype=float) for c in ("time_a", "time_b"))
-    interval = np.fmin(local[0][np.clip(np.searchsorted(ta, time_a), 0, ta.size - 1)],
+    interval = np.fmax(local[0][np.clip(np.searchsorted(ta, time_a), 0, ta.size - 1)],
                        local[1][np.clip(np.searchsorted(tb, time_b), 0, tb.size - 1)])
     gap = np.abs(time_a - time_b)
     apart = np.isfinite(interval) & (gap > GAP_SHARE * interval)
@@ -124,7 +138,8 @@ def _gap_note(pairs, ta, tb, local, labels) -> list:
     k = int(np.argmax(np.where(apart, gap, -1.0)))
     return [f"{int(apart.sum())} of {len(pairs)} pairs join times more than {100 * GAP_SHARE:g} % of the output "
             f"interval apart, the largest {gap[k]:.4g} ({labels[0]} t = {time_a[k]:.6g} against {labels[1]} "
-            f"t = {time_b[k]:.6g}, the interval there {interval[k]:.4g}): the shape measures of those pairs include "
+            f"t = {time_b[k]:.6g}: {100 * gap[k] / interval[k]:.2g} % of the interval there {interval[k]:.4g}, the "
+            "longer of the two runs'): the shape measures of those pairs include "
             "the flow's motion over that gap (time_b is in the shape table and comparison.csv)"]
 
 
@@ -132,10 +147,21 @@ def _when(row) -> str:
     return f"t = {row['time_a']:.6g}, steps {int(row['step_a'])} and {int(row['step_b'])}"
 
 
+def flipped_dice(dice, volume_a, volume_b, compared_volume):
+    """The Dice a pair would read with one run's other phase, the smaller of the two flips, from the pair's
+    own figures: the overlap I = dice (va + vb) / 2; taking B's other phase (volume V - vb) leaves the
+    overlap va - I, so Dice 2 (va - I) / (va + V - vb); taking A's, 2 (vb - I) / (vb + V - va)."""
+    dice, va, vb, whole = (np.asarray(v, dtype=float) for v in (dice, volume_a, volume_b, compared_volume))
+    overlap = 0.5 * dice * (va + vb)
+    with np.errstate(divide="ignore", invalid="ignore"):
+        return np.fmin(2 * (va - overlap) / (va + whole - vb), 2 * (vb - overlap) / (vb + whole - va))
+
+
 def shape_checks(comparison, labels) -> list:
     """Findings on the shape measures of comparison.csv: pairs compared over part of the domain, and
     pairs whose phases look opposite (Dice below :data:`OPPOSITE_DICE` while the interfaces lie within
-    :data:`OPPOSITE_SPACINGS` grid spacings and the two phase volumes fill the compared volume)."""
+    :data:`OPPOSITE_SPACINGS` grid spacings, the two phase volumes fill the compared volume, and either
+    run's other phase would give a Dice of :data:`OPPOSITE_FLIPPED_DICE` or more)."""
     if comparison is None or not len(comparison) or "time_a" not in comparison:
         return []
     from ..report._compare_report import partial_pairs
@@ -156,16 +182,17 @@ def shape_checks(comparison, labels) -> list:
     needed = ("dice", "mean_distance", "grid_spacing", "volume_a", "volume_b", "compared_volume")
     if all(c in comparison for c in needed):
         t = {c: comparison[c].to_numpy(dtype=float) for c in needed}
+        flipped = flipped_dice(t["dice"], t["volume_a"], t["volume_b"], t["compared_volume"])
         opposite = ((t["dice"] < OPPOSITE_DICE) & (t["mean_distance"] <= OPPOSITE_SPACINGS * t["grid_spacing"])
                     & (np.abs(t["volume_a"] + t["volume_b"] - t["compared_volume"])
-                       <= OPPOSITE_SHARE * t["compared_volume"]))
+                       <= OPPOSITE_SHARE * t["compared_volume"]) & (flipped >= OPPOSITE_FLIPPED_DICE))
         if opposite.any():
             k = int(np.flatnonzero(opposite)[0])
             found.append(
                 f"the runs appear to measure opposite phases at {int(opposite.sum())} of {len(comparison)} pairs "
-                f"({_when(comparison.iloc[k])}: dice {t['dice'][k]:.3g}, yet the interfaces lie "
-                f"{t['mean_distance'][k] / t['grid_spacing'][k]:.2g} grid spacings apart on average and the phase "
-                f"volumes {t['volume_a'][k]:.4g} + {t['volume_b'][k]:.4g} fill the compared volume "
+                f"({_when(comparison.iloc[k])}: dice {t['dice'][k]:.3g}, {flipped[k]:.3g} with one run's phase "
+                f"flipped; interfaces {t['mean_distance'][k] / t['grid_spacing'][k]:.2g} grid spacings apart on "
+                f"average, phase volumes {t['volume_a'][k]:.4g} + {t['volume_b'][k]:.4g} filling the compared volume "
                 f"{t['compared_volume'][k]:.4g}): check --phase-a, --phase-b (recipe: phase) and the ranges; a phase "
                 "field's drop at -1 is --phase-a lower")
     return found

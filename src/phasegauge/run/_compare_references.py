@@ -30,30 +30,74 @@ def rise_axis(result) -> str:
     return AXIS_NAMES[int(outline.plane_axes[1])]
 
 
+#: cells the interface crosses: indicator strictly between these (our threshold)
+CUT = (0.01, 0.99)
+#: an axis-aligned square: its sides along the plane's axes and equal within this share (our threshold)
+SQUARE_SHARE = 0.01
+
+
 def bubble_cells(result, series) -> dict:
     """Keywords ``cell_size`` and ``quad_grid`` of :func:`~phasegauge.analysis.references.check_rising_bubble`
     for a run with a sharp interface (cell fractions), whose circularity has a perimeter bias of its own: the
-    median cell size and layout of the mesh of its first analysed step, read again from ``series`` (the run's
-    :class:`~phasegauge.io.Series`) and taken as measure takes it (a slab one cell thick as its 2D plane).
-    Empty for a diffuse run or a level set, a 3D mesh, or a mesh that cannot be read again."""
+    median size of the cells the interface crosses (indicator strictly between 0.01 and 0.99) in the first
+    analysed step, read again from ``series`` (the run's :class:`~phasegauge.io.Series`) and taken as measure
+    takes it (a slab one cell thick as its 2D plane); ``quad_grid`` where the mesh is a regular grid or those
+    cells are axis-aligned squares (a quadtree's leaves, a refined mesh as Basilisk writes it). Empty for a
+    diffuse run or a level set, a 3D mesh, or a mesh that cannot be read again."""
     import warnings
 
     from ..errors import PhasegaugeError
-    from ..model.quasi2d import as_measured
+    from ..model.indicator import make_indicator
+    from .step import flatten_step
 
     if (result.audit or {}).get("interface_kind") != "sharp":
         return {}
     step = next((r.index for r in result.results if r.skipped is None), None)
     if step is None:
         return {}
+    o = result.options
     try:
-        with warnings.catch_warnings():  # the run has warned of its mesh already
+        with warnings.catch_warnings():  # the run has warned of its mesh and field already
             warnings.simplefilter("ignore")
-            mesh = series.read_mesh(step)
-            flat = as_measured(mesh, keep_3d=bool(getattr(result.options, "keep_3d", False)))
+            s, _ = flatten_step(series.read(step), o)
+            c = make_indicator(s.mesh, s.fields, o.field, range=o.range, phase=o.phase, warn=False,
+                               field_location=o.field_location, level_set=o.level_set).cell
     except PhasegaugeError:
         return {}
-    mesh = mesh if flat is None else flat.mesh
+    mesh = s.mesh
     if int(mesh.dimension) != 2:
         return {}
-    return {"cell_size": float(np.median(mesh.cell_sizes)), "quad_grid": mesh.regular_grid is not None}
+    with np.errstate(invalid="ignore"):
+        cut = np.flatnonzero((c > CUT[0]) & (c < CUT[1]))
+    if not cut.size:
+        cut = np.arange(mesh.n_cells)
+    return {"cell_size": float(np.median(mesh.cell_sizes_of(cut))),
+            "quad_grid": mesh.regular_grid is not None or _axis_aligned_squares(mesh, cut)}
+
+
+def _axis_aligned_squares(mesh, cells) -> bool:
+    """Whether every one of ``cells`` (indices) of a 2D mesh is a quad whose sides lie along the plane's
+    axes and are equal (within :data:`SQUARE_SHARE`): a quadtree's leaves, of one size or of several."""
+    if mesh.cell_parents is not None:
+        return False
+    wanted = np.zeros(mesh.n_cells, dtype=bool)
+    wanted[cells] = True
+    axes = list(mesh.plane_axes[:2])
+    start = 0
+    for block in mesh.blocks:
+        mine = wanted[start:start + len(block)]
+        start += len(block)
+        if not mine.any():
+            continue
+        if block.cell_type != "quad":
+            return False
+        corners = mesh.points[block.connectivity[mine]][:, :, axes]  # (cells, 4, 2)
+        low, high = corners.min(axis=1), corners.max(axis=1)
+        side = high - low
+        size = side.max(axis=1, keepdims=True)
+        # each corner on the box's corners (sides along the axes), the box square
+        off = np.minimum(np.abs(corners - low[:, None]), np.abs(corners - high[:, None]))
+        on_box = off <= SQUARE_SHARE * size[:, None]
+        if not (on_box.all() and np.all(np.abs(side[:, 0] - side[:, 1]) <= SQUARE_SHARE * size[:, 0])):
+            return False
+    return True
