@@ -11,6 +11,7 @@ from __future__ import annotations
 
 import numpy as np
 
+from ..model.corners import corner_extremes
 from ..model.mesh import Mesh
 from ._width_integrals import _HIGH, _LOW
 
@@ -97,21 +98,29 @@ def beyond_reach_points(mesh: Mesh, u: np.ndarray, level: float) -> tuple[np.nda
     from scipy import sparse
     from scipy.sparse.csgraph import connected_components
 
-    a = mesh.incidence.tocsr()
+    # from the blocks' corners, a block at a time: no incidence matrix is made (nor kept on the mesh: 52 MB
+    # at 1M tetrahedra), and the graph holds the band's (cell, corner) pairs only
     finite = np.isfinite(u)
-    above = (a @ (finite & (u >= level)).astype(np.float64)) > 0  # (a corner at the level: crossed beside it)
-    below = (a @ (finite & (u < level)).astype(np.float64)) > 0
-    crossed = above & below
     band = finite & (u > _LOW) & (u < _HIGH)
-    # cells and points as the nodes of one graph: a cell joins its band corners
-    links = a.tocoo()
-    joined = band[links.col]
+    high = corner_extremes(mesh, np.where(finite, u, -np.inf)).high  # a finite corner at or above the level
+    crossed = (high >= level) & (corner_extremes(mesh, np.where(finite, u, np.inf)).low < level)
+    del high
+    rows, cols = [], []
+    for block, start in zip(mesh.blocks, mesh.block_offsets[:-1]):
+        cell, corner = np.nonzero(band[block.connectivity])
+        rows.append(cell + int(start))
+        cols.append(block.connectivity[cell, corner])
+    rows, cols = np.concatenate(rows), np.concatenate(cols)
     n_cells = mesh.n_cells
-    graph = sparse.coo_matrix((np.ones(int(joined.sum())), (links.row[joined], links.col[joined] + n_cells)),
-                              shape=(n_cells + mesh.n_points,) * 2)
+    # cells and points as the nodes of one graph: a cell joins its band corners
+    graph = sparse.coo_matrix((np.ones(rows.size), (rows, cols + n_cells)), shape=(n_cells + mesh.n_points,) * 2)
     _, label = connected_components(graph, directed=False)
     reached = np.zeros(label.max() + 1, dtype=bool)
     reached[label[:n_cells][crossed]] = True
-    near = reached[label[:n_cells]] & (crossed | ((a @ band.astype(np.float64)) > 0))
-    within = (a.T @ near.astype(np.float64)) > 0
+    has_band = np.zeros(n_cells, dtype=bool)
+    has_band[rows] = True
+    near = reached[label[:n_cells]] & (crossed | has_band)
+    within = np.zeros(mesh.n_points, dtype=bool)
+    for block, start in zip(mesh.blocks, mesh.block_offsets[:-1]):
+        within[block.connectivity[near[int(start):int(start) + block.connectivity.shape[0]]].ravel()] = True
     return finite & ~within, near
