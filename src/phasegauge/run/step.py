@@ -64,6 +64,7 @@ class StepResult:
     profile: object = None  # DataFrame or None
     contour: object = None  # Contour of the step (kept for snapshots)
     mesh_signature: str = ""
+    cells_signature: str = ""  # the cells whatever their numbering (Mesh.cells_signature)
     skipped: str | None = None
     seconds: float = 0.0
     file_sha256: str = ""
@@ -217,7 +218,7 @@ def analyse_step(step, options, *, contour_dir: str | None = None, threads: int 
     check_mesh(mesh, step.info.where)
     u_cell, u_point, u_location = step_velocity(step, options)
     result = StepResult(step.index, step.time, step.info.path, mesh_signature=mesh.signature,
-                        dimension=int(mesh.dimension), time_origin=step.info.time_origin,
+                        cells_signature=mesh.cells_signature, dimension=int(mesh.dimension), time_origin=step.info.time_origin,
                         outline=MeshOutline.of(mesh, centroids="droplets" in options.analyses))
     result.extra = options.step_extra(step, ind)
     result.field_source = ind.source
