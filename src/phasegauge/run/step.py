@@ -218,7 +218,8 @@ def analyse_step(step, options, *, contour_dir: str | None = None, threads: int 
     check_mesh(mesh, step.info.where)
     u_cell, u_point, u_location = step_velocity(step, options)
     result = StepResult(step.index, step.time, step.info.path, mesh_signature=mesh.signature,
-                        cells_signature=mesh.cells_signature, dimension=int(mesh.dimension), time_origin=step.info.time_origin,
+                        cells_signature=mesh.cells_signature, dimension=int(mesh.dimension),
+                        time_origin=step.info.time_origin,
                         outline=MeshOutline.of(mesh, centroids="droplets" in options.analyses))
     result.extra = options.step_extra(step, ind)
     result.field_source = ind.source
