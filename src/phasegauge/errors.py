@@ -35,6 +35,7 @@ __all__ = [
     "SeriesWarning",
     "MeshWarning",
     "BlocksLeftOutNote",
+    "CornerCopiesNote",
     "OldNameWarning",
     "collapse_warnings",
     "numbers_masked",
@@ -207,6 +208,12 @@ class BlocksLeftOutNote(MeshWarning):
 
     def __reduce__(self):
         return (type(self), (self.what, self.where, self.names))
+
+
+class CornerCopiesNote(MeshWarning):
+    """Cells written each with their own copies of their corners (no point shared by two cells), whose copies'
+    point values agree, merged into shared points: the figures are those of the shared-point mesh, so it is an
+    info line of a run, not a finding."""
 
 
 class OldNameWarning(PhasegaugeWarning, FutureWarning):

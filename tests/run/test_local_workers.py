@@ -157,8 +157,9 @@ def test_a_mesh_warning_reads_alike_on_one_or_two_workers(tmp_path):
 
 def test_a_read_warning_counts_every_step_of_its_mesh_on_one_or_two_workers(tmp_path):
     # a 10 x 10 quad grid whose file stores each quad's corners apart (400 points for 121 places, as numpy's
-    # unique counts them): the reader merges them and says so; with the same mesh in all 5 steps the
-    # line counts the 4 more steps however the steps were shared among processes
+    # unique counts them), each copy with a value of its own (a point field the merge averages): the reader
+    # merges them and says so; with the same mesh in all 5 steps the line counts the 4 more steps however
+    # the steps were shared among processes
     import meshio
 
     mesh = grid_mesh((10, 10), kind="quad")
@@ -171,7 +172,8 @@ def test_a_read_warning_counts_every_step_of_its_mesh_on_one_or_two_workers(tmp_
     lines = []
     for k in range(5):
         alpha = np.where(x < 0.2 + 0.1 * k, 1.0, 0.0)
-        meshio.write(str(tmp_path / f"s_{k}.vtu"), meshio.Mesh(points, [("quad", apart)], cell_data={"alpha": [alpha]}))
+        meshio.write(str(tmp_path / f"s_{k}.vtu"), meshio.Mesh(points, [("quad", apart)], cell_data={"alpha": [alpha]},
+                                                               point_data={"copy": np.arange(400.0) % 4}))
     for workers in (1, 2):
         result = measure(str(tmp_path), "alpha", analyses=("conservation",), workers=workers)
         lines.append([w for w in result.warnings if "duplicate points merged" in w])

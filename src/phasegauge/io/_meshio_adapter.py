@@ -563,8 +563,11 @@ def _checked_mesh(mesh: Mesh, raw, where: str) -> Mesh:
     duplicates = int(np.count_nonzero(own)) - np.unique(classes).size
     if duplicates == 0:
         return merged
-    warnings.warn(MeshWarning(f"{duplicates} duplicate points merged (cells share their corners "
-                              "now); point fields are averaged over the copies", where=where), stacklevel=3)
+    from ._corner_copies import corner_copies_note
+
+    note = corner_copies_note(raw, inverse, own, duplicates, where)  # a layout, not a finding: an info line
+    warnings.warn(note or MeshWarning(f"{duplicates} duplicate points merged (cells share their corners "
+                                      "now); point fields are averaged over the copies", where=where), stacklevel=3)
     return merged
 
 

@@ -27,7 +27,7 @@ from ..errors import FieldShapeError, InputFileNotFound, UnreadableFileError, Un
 from ..model.mesh import Mesh
 from ._meshio_adapter import (_WRITE_AGAIN, StepFields, ensure_vtk_extras, hdf5_problem, mesh_and_fields,
                               repeat_mesh_notes, step_fields)
-from ._xdmf_forms import base_offset, form_problem, version_problem
+from ._xdmf_forms import base_offset, form_problem, spatial_problem, version_problem
 
 __all__ = ["XdmfTimeSeries", "offset_cells", "read_timed_grid"]
 
@@ -43,7 +43,7 @@ def _time_series_reader(path: str):
     except (ET.ParseError, OSError) as exc:
         raise UnreadableFileError(f"not a readable XDMF file ({short_text(exc)})", where=path,
                                   fix="check that the file is complete XML") from None
-    problem = version_problem(root, path)
+    problem = version_problem(root, path) or spatial_problem(root, path)
     if problem is not None:
         raise problem
     try:

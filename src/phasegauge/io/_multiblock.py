@@ -143,19 +143,26 @@ def read_multiblock(path: str):
     every block holds it with the same components. The field data is the first
     block's, its time replaced by the one the multiblock file itself stores
     (:func:`own_time`). Cells a block's reader split (convex point sets)
-    stay marked as pieces of their cell (``cell_pieces``).
+    stay marked as pieces of their cell (``cell_pieces``). Unstructured pieces of 0 points and 0 cells
+    (written by a process that owns no cells) are left out, from the fields' check too.
     """
     from ._formats import read_mesh_file
     from ..model.polyhedra import joined_centres
     from ._meshio_adapter import file_rows, new_mesh
+    from ._vtk import xml_holds_no_cells
 
     path = os.fspath(path)
     root = _index_root(path)  # parsed once: the blocks and the file's own time
     blocks = _blocks_of(root, path)
     own = _own_time_of(root)
-    pieces = [read_mesh_file(_volume_file(path, file)) for _, file in blocks.volume]
-    pieces = _without_patches(pieces, blocks.volume, path)
-    named = [block for block, piece in zip(blocks.volume, pieces) if piece is not None]
+    volume = [(name, _volume_file(path, file)) for name, file in blocks.volume]
+    volume = [(name, file) for name, file in volume if not xml_holds_no_cells(file)]  # a process owning no cells
+    if not volume:
+        raise UnreadableFileError("every piece it names holds no cells (0 points and 0 cells)", where=path,
+                                  fix="give a step whose pieces hold the mesh's cells")
+    pieces = [read_mesh_file(file) for _, file in volume]
+    pieces = _without_patches(pieces, volume, path)
+    named = [block for block, piece in zip(volume, pieces) if piece is not None]
     pieces = [piece for piece in pieces if piece is not None]
     if len(pieces) == 1:
         return _with_own_time(pieces[0], path, named[0][0], own)

@@ -23,7 +23,7 @@ from ._formats import TIME_NEEDS_FULL_READ, register_format, stored_time
 from ._meshio_adapter import read_with_meshio
 from ._polyhedra import legacy_holds_polyhedra, read_polyhedral, xml_holds_polyhedra
 
-__all__ = ["FORMATS", "read_structured"]
+__all__ = ["FORMATS", "read_structured", "xml_holds_no_cells"]
 
 #: how many bytes of a file's head the time peekers look at
 PEEK_BYTES = 1 << 16
@@ -145,8 +145,29 @@ def _structured_fallback(path: str):
     return read_structured(path) if legacy_structured(path) else None
 
 
+def xml_holds_no_cells(path: str) -> bool:
+    """True for a VTK XML unstructured grid whose every ``<Piece>`` holds 0 points and 0 cells, as a parallel
+    writer leaves the piece of a process that owns no cells (its whole structure lies in the file's head)."""
+    try:
+        with open(path, "rb") as handle:
+            head = handle.read(PEEK_BYTES)
+    except OSError:
+        return False
+    head = head.split(b"<AppendedData", 1)[0]
+    if not re.search(rb'<VTKFile[^<>]*type="UnstructuredGrid"', head) or b"</UnstructuredGrid>" not in head:
+        return False
+    pieces = re.findall(rb"<Piece\b[^<>]*>", head)
+    counts = [re.findall(rb'NumberOf(?:Points|Cells)="\s*(\d+)\s*"', piece) for piece in pieces]
+    return bool(pieces) and all(len(c) == 2 and not any(int(n) for n in c) for c in counts)
+
+
 def read_xml_unstructured(path: str):
     check_xml_claims(path)
+    if xml_holds_no_cells(path):  # the file is whole: meshio's reader fails on its empty arrays
+        raise UnreadableFileError("holds no cells (0 points and 0 cells: a piece of a process that owns none)",
+                                  where=path, fix="leave the file out, or give the parallel file (.pvtu) or "
+                                                  "multiblock file (.vtm) that names it with the pieces holding "
+                                                  "the cells")
     if xml_holds_polyhedra(path):  # meshio reads them only alone and not in format 2.3
         return read_polyhedral(path)
     return read_with_meshio(path, "vtu")

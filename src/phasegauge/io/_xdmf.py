@@ -17,7 +17,7 @@ from ..errors import InputFileNotFound, SeriesError, UnreadableFileError, short_
 from ._formats import register_format, stored_time
 from ._meshio_adapter import read_with_meshio
 from ._meshio_xdmf import offset_cells, read_timed_grid
-from ._xdmf_forms import base_offset, form_problem
+from ._xdmf_forms import base_offset, form_problem, spatial_problem
 
 __all__ = ["FORMATS", "temporal_grids", "collection_times", "collections_among", "lone_collection", "grid_time",
            "xdmf_data_files", "data_file_names", "included_files", "peek_xdmf_time"]
@@ -349,9 +349,13 @@ def read_xdmf(path: str):
     (which meshio does not read) is subtracted from the corner numbers it gives.
     """
     try:
-        grid = next((g for g in ET.parse(path).getroot().iter("Grid") if g.find("Topology") is not None), None)
+        root = ET.parse(path).getroot()
     except (ET.ParseError, OSError):  # meshio's failure on it says what is wrong
-        grid = None
+        root = None
+    problem = None if root is None else spatial_problem(root, path)
+    if problem is not None:
+        raise problem
+    grid = None if root is None else next((g for g in root.iter("Grid") if g.find("Topology") is not None), None)
     offset = 0
     if grid is not None:
         problem = form_problem(grid, path)

@@ -17,7 +17,7 @@ from __future__ import annotations
 
 from ..errors import UnreadableFileError, UnsupportedMeshError
 
-__all__ = ["form_problem", "base_offset", "version_problem"]
+__all__ = ["form_problem", "base_offset", "version_problem", "spatial_problem"]
 
 #: geometry forms meshio does not read, and what each holds
 _GEOMETRY_NOT_READ = (
@@ -112,3 +112,20 @@ def version_problem(root, path: str):
     return UnreadableFileError(f"the XDMF file has {found}; time collections of versions 2 and 3 are read",
                                where=path, fix='write Version="3.0" on the <Xdmf> element (an XDMF 3 file), or '
                                                "give a 'time,path' listing of per-step files")
+
+
+def spatial_problem(root, where: str):
+    """The error for grids written as spatial collections of pieces (``GridType="Collection"`` with
+    ``CollectionType="Spatial"``, or a collection inside the temporal collection: one step's pieces), which are
+    not read, or None. meshio's readers take a step's mesh from one Uniform grid."""
+    for grid in root.iter("Grid"):
+        if (grid.get("GridType") or "").strip().lower() != "collection":
+            continue
+        kind = (grid.get("CollectionType") or "").strip().lower()
+        inner = kind == "temporal" and any(child.tag == "Grid" and (child.get("GridType") or "").strip().lower()
+                                           == "collection" for child in grid)
+        if kind == "spatial" or inner:
+            return UnsupportedMeshError("steps written as spatial collections of pieces are not read", where=where,
+                                        fix="write one Uniform grid per step (the pieces joined), or each step's "
+                                            "pieces as VTK files named by a .pvtu or .vtm")
+    return None

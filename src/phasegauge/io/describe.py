@@ -115,7 +115,7 @@ def _describe(series, scan: str) -> dict:
             errors.append(err)
             continue
         scanned.append(i)
-        meshes.add(step.mesh.signature)
+        meshes.add(step.mesh.cells_signature)  # the cells, whatever their numbering
         dimensions.add(step.mesh.dimension)
         for location, data in (("point", step.fields.point_data), ("cell", step.fields.cell_data)):
             for name, values in data.items():

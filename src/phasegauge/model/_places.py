@@ -9,7 +9,7 @@ from __future__ import annotations
 
 import numpy as np
 
-__all__ = ["coincident_points", "corner_means", "first_copies", "in_coordinate_order"]
+__all__ = ["coincident_points", "corner_means", "first_copies", "in_coordinate_order", "numbering_free_signature"]
 
 
 def first_copies(points) -> np.ndarray | None:
@@ -118,3 +118,28 @@ def corner_means(values, points: np.ndarray, offsets: np.ndarray) -> np.ndarray:
         counts = np.diff(offsets[lo:hi + 1])
         np.divide(sums, counts.reshape((-1,) + (1,) * (v.ndim - 1)), out=out[lo:hi])
     return out
+
+
+def numbering_free_signature(points, blocks) -> str:
+    """A hash of the mesh's cells that does not depend on how its points and cells are numbered: equal for the
+    same cells written in another order (a decomposed mesh's pieces joined in another split).
+
+    Each cell is its type and, per axis, the sum of its corners' coordinates taken in increasing order (the
+    same bits whatever the corners' order); the cells' mixed 64-bit keys are sorted before they are hashed.
+    """
+    import hashlib
+
+    points = np.asarray(points, dtype=np.float64)
+    h = hashlib.sha256()
+    for cell_type in sorted({b.cell_type for b in blocks}):
+        conn = np.concatenate([np.asarray(b.connectivity) for b in blocks if b.cell_type == cell_type])
+        key = np.zeros(conn.shape[0], dtype=np.uint64)
+        with np.errstate(over="ignore"):
+            for axis in range(points.shape[1]):
+                bits = (np.sort(points[conn, axis], axis=1).sum(axis=1) + 0.0).view(np.uint64)
+                key ^= bits + np.uint64(axis + 1)
+                key *= _MIX[axis % len(_MIX)]
+                key ^= key >> np.uint64(31)
+        h.update(f"{cell_type}:{conn.shape[0]}:{conn.shape[1]};".encode())
+        h.update(np.sort(key))
+    return h.hexdigest()[:32]

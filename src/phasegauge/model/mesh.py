@@ -241,6 +241,13 @@ class Mesh:
             h.update(np.ascontiguousarray(b.connectivity))
         return h.hexdigest()[:32]
 
+    @cached_property
+    def cells_signature(self) -> str:
+        """Hash of the cells alone, whatever their and their points' numbering (:func:`numbering_free_signature`)."""
+        from ._places import numbering_free_signature
+
+        return numbering_free_signature(self.points, self.blocks + self.boundary_blocks)
+
     def same_topology(self, points, blocks) -> bool:
         """True when ``points`` and ``blocks`` (converted) describe this mesh."""
         pts = np.asarray(points, dtype=np.float64)

@@ -281,11 +281,16 @@ def _no_step_error(results: list) -> PhasegaugeError:
 
 
 def _mesh_change_records(series, done) -> list:
-    """A series note when the mesh changes between analysed steps."""
-    changes = [b.index for a, b in zip(done[:-1], done[1:]) if a.mesh_signature != b.mesh_signature]
+    """A series note when the mesh changes between analysed steps: its cells, not only their numbering (the same
+    cells joined from pieces split otherwise are the same mesh)."""
+    def cells(r):
+        return r.cells_signature or r.mesh_signature
+
+    changes = [b.index for a, b in zip(done[:-1], done[1:])
+               if a.mesh_signature != b.mesh_signature and cells(a) != cells(b)]
     if not changes:
         return []
-    count = len({r.mesh_signature for r in done})
+    count = len({cells(r) for r in done})
     at = ", ".join(str(i) for i in changes[:5]) + (" ..." if len(changes) > 5 else "")
     return [(SeriesWarning, f"the mesh changes between steps (at step {at}; {count} meshes): phase-volume drift "
                             "across a change includes any remapping of the solution", os.fspath(series.path))]

@@ -416,7 +416,8 @@ def _write_contour_listing(contour_dir: str, results) -> None:
 def _reading(record: dict, results) -> list:
     """Info lines on what the run read: a field's copy when it has two, multiblock blocks left out (polygon
     data, in the series' ``record``, and volume-format blocks of faces:
-    :class:`~phasegauge.errors.BlocksLeftOutNote`)."""
+    :class:`~phasegauge.errors.BlocksLeftOutNote`), cells written with their own copies of their corners
+    (:class:`~phasegauge.errors.CornerCopiesNote`)."""
     from ._report_data import blocks_left_out
 
     lines = []
@@ -427,6 +428,12 @@ def _reading(record: dict, results) -> list:
     if left_out:
         lines.append(f"multiblock blocks left out: {', '.join(left_out)} "
                      "(boundary patches: the volume blocks are read)")
+    from ..errors import CornerCopiesNote
+
+    copies = next((note.what for r in results for note in getattr(r, "notes", ()) or ()
+                   if isinstance(note, CornerCopiesNote)), None)
+    if copies:
+        lines.append(copies)
     return lines
 
 

@@ -18,9 +18,9 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
-from ..errors import (AnalysisError, BlocksLeftOutNote, FieldNotFoundError, InputError, InputFileNotFound, MeshWarning,
-                      NonFiniteWarning, PhasegaugeError, PhasegaugeWarning, SeriesError, UnsupportedMeshError,
-                      short_text)
+from ..errors import (AnalysisError, BlocksLeftOutNote, CornerCopiesNote, FieldNotFoundError, InputError,
+                      InputFileNotFound, MeshWarning, NonFiniteWarning, PhasegaugeError, PhasegaugeWarning,
+                      SeriesError, UnsupportedMeshError, short_text)
 from ..model.axes import AXIS_INDEX
 from ..model.fields import vector_field
 from ..model.indicator import make_indicator
@@ -64,6 +64,7 @@ class StepResult:
     profile: object = None  # DataFrame or None
     contour: object = None  # Contour of the step (kept for snapshots)
     mesh_signature: str = ""
+    cells_signature: str = ""  # the cells whatever their numbering (Mesh.cells_signature)
     skipped: str | None = None
     seconds: float = 0.0
     file_sha256: str = ""
@@ -217,7 +218,8 @@ def analyse_step(step, options, *, contour_dir: str | None = None, threads: int 
     check_mesh(mesh, step.info.where)
     u_cell, u_point, u_location = step_velocity(step, options)
     result = StepResult(step.index, step.time, step.info.path, mesh_signature=mesh.signature,
-                        dimension=int(mesh.dimension), time_origin=step.info.time_origin,
+                        cells_signature=mesh.cells_signature, dimension=int(mesh.dimension),
+                        time_origin=step.info.time_origin,
                         outline=MeshOutline.of(mesh, centroids="droplets" in options.analyses))
     result.extra = options.step_extra(step, ind)
     result.field_source = ind.source
@@ -546,9 +548,10 @@ class StepRunner:
         if result.skipped is None:  # a skipped step's warnings are about what made it fail
             records = [(w.category, getattr(w.message, "what", str(w.message)), info.where)
                        for w in caught if issubclass(w.category, PhasegaugeWarning)]
-            # blocks left out are an info line of the run, not a finding: kept apart from the step's warnings
-            result.notes = [w.message for w in caught if isinstance(w.message, BlocksLeftOutNote)]
-            result.warning_records = [rec for rec in records if not issubclass(rec[0], BlocksLeftOutNote)]
+            # blocks left out and corner copies merged are info lines of the run, not findings: kept apart
+            notes = (BlocksLeftOutNote, CornerCopiesNote)
+            result.notes = [w.message for w in caught if isinstance(w.message, notes)]
+            result.warning_records = [rec for rec in records if not issubclass(rec[0], notes)]
         result.seconds = time.perf_counter() - start
         result.file_sha256 = entry.file_sha256 if entry is not None else ""
         if entry is not None and result.skipped is None:  # a bad step is tried again on resume
