@@ -35,6 +35,7 @@ __all__ = [
     "SeriesWarning",
     "MeshWarning",
     "BlocksLeftOutNote",
+    "ReadingNote",
     "OldNameWarning",
     "collapse_warnings",
     "numbers_masked",
@@ -196,7 +197,12 @@ class MeshWarning(PhasegaugeWarning):
     """The mesh has inverted or zero-size cells, or duplicate points that were merged."""
 
 
-class BlocksLeftOutNote(MeshWarning):
+class ReadingNote(MeshWarning):
+    """How the cells or blocks of a file were read, said as an info line of a run (``inspect``: how the cells
+    were read), not as a finding: cells a writer decomposed read as whole cells, blocks left out."""
+
+
+class BlocksLeftOutNote(ReadingNote):
     """Blocks of a multiblock file left out as boundary patches (volume-format files of faces only): said
     where the polygon-data patches left out are said (an info line of a run, ``inspect``'s left-out blocks),
     not as a finding. ``names``: the blocks' names, as the file names them (read from here, not the text)."""
