@@ -25,6 +25,7 @@ the boundary flux's whole-cell test, the samples of ``cell_to_point`` and drople
 from __future__ import annotations
 
 import warnings
+from types import MappingProxyType
 
 import numpy as np
 
@@ -35,8 +36,7 @@ __all__ = ["mark_decomposed_cells"]
 
 _SOLID = ("tetra", "pyramid", "hexahedron", "wedge", "voxel")
 _PIECES = ("tetra", "pyramid")
-#: the edges of a piece's face opposite its centre: a pyramid's base (the centre its apex, corner 4)
-_BASE_EDGES = ((0, 1), (1, 2), (2, 3), (3, 0))
+_NAMES = MappingProxyType({"pyramid": "pyramids", "tetra": "tetrahedra"})
 
 
 def mark_decomposed_cells(raw, where: str = ""):
@@ -58,7 +58,7 @@ def mark_decomposed_cells(raw, where: str = ""):
         found = _decomposed(raw, solid, name)
         if found is None:
             continue
-        parents, centres = found
+        parents, centres, listed = found
         sizes = [len(raw.cells[i].data) for i in solid]
         starts = np.concatenate([[0], np.cumsum(sizes)]).astype(np.int64)
         marks = [None] * len(raw.cells)
@@ -67,8 +67,7 @@ def mark_decomposed_cells(raw, where: str = ""):
             marks[i] = own if k == 0 else JoinedPieces(own)  # one numbering over every block
         raw.cell_pieces = marks
         raw.split_centres = centres
-        n_whole, n_pieces = int(centres.points.size), int(np.count_nonzero(np.bincount(parents)[parents] > 1))
-        words = (f"{n_pieces} pyramids and tetrahedra read as the {n_whole} whole cells that cell array "
+        words = (f"{listed} read as the {centres.points.size} whole cells that cell array "
                  f"'{name}' numbers (each written decomposed about an added centre)")
         earlier = getattr(raw, "convex_point_sets", None)
         raw.convex_point_sets = words if not earlier else f"{earlier}; {words}"
@@ -85,8 +84,9 @@ def _dimension(cell_type: str) -> int:
 
 
 def _decomposed(raw, solid: list, name: str):
-    """``(parents, centres)`` when cell array ``name`` numbers decomposed cells (module docstring), else None:
-    the whole cell of each solid cell (0 ..), and the :class:`SplitCentres` of the shared points."""
+    """``(parents, centres, listed)`` when cell array ``name`` numbers decomposed cells (module docstring), else
+    None: the whole cell of each solid cell (0 ..), the :class:`SplitCentres` of the shared points, and the
+    pieces in words."""
     arrays = raw.cell_data[name]
     if len(arrays) != len(raw.cells):
         return None
@@ -101,82 +101,84 @@ def _decomposed(raw, solid: list, name: str):
     repeated = counts[parents] > 1
     if not repeated.any():
         return None
-    types = np.concatenate([np.full(len(raw.cells[i].data), _PIECES.index(str(raw.cells[i].type))
-                                    if str(raw.cells[i].type) in _PIECES else -1) for i in solid])
-    if (types[repeated] < 0).any() or (counts[counts > 1] < 4).any():
-        return None
-    # the pieces' corners as (piece, corner) pairs
-    starts = np.concatenate([[0], np.cumsum([len(raw.cells[i].data) for i in solid])]).astype(np.int64)
-    rows, corners = [], []
+    sizes = [len(raw.cells[i].data) for i in solid]
+    starts = np.concatenate([[0], np.cumsum(sizes)]).astype(np.int64)
+    pieces = []  # (kind, corners, group) of the repeated values' cells, block by block
     for k, i in enumerate(solid):
-        if str(raw.cells[i].type) not in _PIECES:
-            continue
-        data = np.asarray(raw.cells[i].data, dtype=np.int64)
-        pick = np.flatnonzero(repeated[starts[k]:starts[k + 1]])
-        if pick.size:
-            rows.append(np.repeat(pick + starts[k], data.shape[1]))
-            corners.append(data[pick].reshape(-1))
-    rows, corners = np.concatenate(rows), np.concatenate(corners)
-    groups = parents[rows]
-    # each group's points and in how many of its pieces each is
-    pairs, in_pieces = np.unique(np.stack([groups, corners], axis=1), axis=0, return_counts=True)
-    shared = in_pieces == counts[pairs[:, 0]]
-    grouped = np.unique(parents[repeated])
-    if np.bincount(pairs[shared, 0], minlength=values.size)[grouped].max(initial=0) != 1 \
-            or np.count_nonzero(shared) != grouped.size:
-        return None  # not exactly one point shared by all of a group's pieces
-    centre_of = np.full(values.size, -1, dtype=np.int64)
-    centre_of[pairs[shared, 0]] = pairs[shared, 1]
-    if np.unique(centre_of[grouped]).size != grouped.size:
-        return None
-    # no other cell uses a centre (nor a cell of another kind: lines, faces)
-    uses = np.zeros(len(raw.points), dtype=np.int64)
-    for block in raw.cells:
-        data = np.asarray(block.data)
-        if data.dtype.kind in "iu" and data.size:
-            np.add.at(uses, data.reshape(-1).astype(np.int64), 1)
-    if not np.array_equal(uses[centre_of[grouped]], counts[grouped]):
-        return None
-    if not _closed_about_centres(raw, solid, starts, repeated, parents, centre_of):
-        return None
-    return parents, _centres(pairs[~shared], grouped, centre_of)
-
-
-def _closed_about_centres(raw, solid, starts, repeated, parents, centre_of) -> bool:
-    """Whether each group's faces opposite its centre close about it: every edge of them in exactly two
-    of the group's pieces, the centre a pyramid's apex (corner 4)."""
-    keys = []
-    for k, i in enumerate(solid):
-        kind = str(raw.cells[i].type)
-        if kind not in _PIECES:
-            continue
         pick = np.flatnonzero(repeated[starts[k]:starts[k + 1]])
         if not pick.size:
             continue
-        data = np.asarray(raw.cells[i].data, dtype=np.int64)[pick]
-        group = parents[pick + starts[k]]
-        centre = centre_of[group]
+        kind = str(raw.cells[i].type)
+        if kind not in _PIECES:
+            return None  # a repeated value's cell neither a pyramid nor a tetrahedron
+        pieces.append((kind, np.asarray(raw.cells[i].data, dtype=np.int64)[pick], parents[pick + starts[k]]))
+    if (counts[counts > 1] < 4).any():
+        return None
+    uses = np.bincount(np.concatenate([np.asarray(b.data, dtype=np.int64).reshape(-1) for b in raw.cells
+                                       if np.asarray(b.data).dtype.kind in "iu"]), minlength=len(raw.points))
+    # each group's centre: a pyramid's apex, else a tetrahedron's corner used as often as the group has pieces
+    # (the last such: writers add the centres after the cells' points); then checked on every piece
+    centre_of = np.full(values.size, -1, dtype=np.int64)
+    for kind, data, group in sorted(pieces, key=lambda piece: piece[0] == "pyramid"):
         if kind == "pyramid":
-            if not np.array_equal(data[:, 4], centre):
-                return False
-            opposite, edges = data[:, :4], _BASE_EDGES
+            centre_of[group] = data[:, 4]
         else:
-            keep = data != centre[:, None]
-            if not (keep.sum(axis=1) == 3).all():
-                return False
-            opposite, edges = data[keep].reshape(-1, 3), ((0, 1), (1, 2), (2, 0))
-        for a, b in edges:
-            lo, hi = np.minimum(opposite[:, a], opposite[:, b]), np.maximum(opposite[:, a], opposite[:, b])
-            keys.append(np.stack([group, lo, hi], axis=1))
-    _, times = np.unique(np.concatenate(keys), axis=0, return_counts=True)
-    return bool((times == 2).all())
+            fits = uses[data] == counts[group][:, None]
+            if not fits.any(axis=1).all():
+                return None
+            centre_of[group] = data[np.arange(len(data)), data.shape[1] - 1 - np.argmax(fits[:, ::-1], axis=1)]
+    for kind, data, group in pieces:
+        centre = centre_of[group]
+        if kind == "pyramid" and not np.array_equal(data[:, 4], centre):
+            return None  # (a pyramid's centre its apex)
+        if not ((data == centre[:, None]).sum(axis=1) == 1).all():
+            return None
+    grouped = np.flatnonzero(counts > 1)
+    if not np.array_equal(uses[centre_of[grouped]], counts[grouped]):
+        return None  # a centre used by a cell of another value, or of no value (a face, a line)
+    if not _closed_about_centres(pieces, centre_of):
+        return None
+    made = {kind: sum(len(data) for k, data, _ in pieces if k == kind) for kind in ("pyramid", "tetra")}
+    listed = " and ".join(f"{n} {_NAMES[kind]}" for kind, n in made.items() if n)
+    return parents, _centres(pieces, grouped, centre_of), listed
 
 
-def _centres(pairs: np.ndarray, grouped: np.ndarray, centre_of: np.ndarray):
-    """The :class:`SplitCentres` of the groups' centres: each the mean of its whole cell's other points
-    (``pairs``: (group, point) rows, sorted, the centres left out)."""
+def _closed_about_centres(pieces: list, centre_of: np.ndarray) -> bool:
+    """Whether each group's faces opposite its centre close about it: every edge of them in exactly two of the
+    group's pieces (so exactly one point, the centre, is shared by all of them)."""
+    groups, edges = [], []
+    for kind, data, group in pieces:
+        keep = data != centre_of[group][:, None]
+        opposite = data[keep].reshape(len(data), -1)  # a pyramid's base, a tetrahedron's face opposite the centre
+        n = opposite.shape[1]
+        for a in range(n):
+            b = (a + 1) % n
+            edges.append(np.sort(np.stack([opposite[:, a], opposite[:, b]], axis=1), axis=1))
+            groups.append(group)
+    groups, edges = np.concatenate(groups), np.concatenate(edges)
+    n = int(edges.max()) + 1
+    if (int(groups.max()) + 1) * n * n < 2 ** 62:  # one key a (group, edge): a sort, not a sort of rows
+        keys = np.sort(groups * (n * n) + edges[:, 0] * n + edges[:, 1])
+        new = np.concatenate([[True], keys[1:] != keys[:-1], [True]])
+    else:
+        order = np.lexsort((edges[:, 1], edges[:, 0], groups))
+        groups, edges = groups[order], edges[order]
+        new = np.concatenate([[True], (groups[1:] != groups[:-1]) | (edges[1:] != edges[:-1]).any(axis=1), [True]])
+    return bool((np.diff(np.flatnonzero(new)) == 2).all())
+
+
+def _centres(pieces: list, grouped: np.ndarray, centre_of: np.ndarray):
+    """The :class:`SplitCentres` of the groups' centres: each the mean of its whole cell's other points."""
     from ..model.polyhedra import SplitCentres
 
-    sizes = np.bincount(pairs[:, 0], minlength=centre_of.size)[grouped]
+    groups = np.concatenate([np.repeat(group, data.shape[1]) for _, data, group in pieces])
+    points = np.concatenate([data.reshape(-1) for _, data, _ in pieces])
+    own = points != centre_of[groups]
+    groups, points = groups[own], points[own]
+    n = int(points.max()) + 1
+    keys = np.sort(groups * n + points)
+    keys = keys[np.concatenate([[True], keys[1:] != keys[:-1]])]  # (a group's points, once each, in order)
+    groups, points = keys // n, keys % n
+    sizes = np.bincount(groups, minlength=centre_of.size)[grouped]
     offsets = np.concatenate([[0], np.cumsum(sizes)]).astype(np.int64)
-    return SplitCentres(centre_of[grouped], pairs[:, 1].astype(np.int64), offsets)
+    return SplitCentres(centre_of[grouped], points, offsets)
