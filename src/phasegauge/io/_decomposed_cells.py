@@ -36,6 +36,9 @@ __all__ = ["mark_decomposed_cells"]
 
 _SOLID = ("tetra", "pyramid", "hexahedron", "wedge", "voxel")
 _PIECES = ("tetra", "pyramid")
+#: most pieces one cell's value may have (our threshold: a polyhedron of 10 000 faces; a region of more cells
+#: is no decomposed cell)
+MOST_PIECES = 10_000
 _NAMES = MappingProxyType({"pyramid": "pyramids", "tetra": "tetrahedra"})
 
 
@@ -103,6 +106,8 @@ def _decomposed(raw, solid: list, name: str):
         return None
     sizes = [len(raw.cells[i].data) for i in solid]
     starts = np.concatenate([[0], np.cumsum(sizes)]).astype(np.int64)
+    if not _first_group_shares_one_point(raw, solid, starts, parents, int(parents[np.argmax(repeated)])):
+        return None  # (a region, zone or rank array fails here, before the work on every group)
     pieces = []  # (kind, corners, group) of the repeated values' cells, block by block
     for k, i in enumerate(solid):
         pick = np.flatnonzero(repeated[starts[k]:starts[k + 1]])
@@ -141,6 +146,20 @@ def _decomposed(raw, solid: list, name: str):
     made = {kind: sum(len(data) for k, data, _ in pieces if k == kind) for kind in ("pyramid", "tetra")}
     listed = " and ".join(f"{n} {_NAMES[kind]}" for kind, n in made.items() if n)
     return parents, _centres(pieces, grouped, centre_of), listed
+
+
+def _first_group_shares_one_point(raw, solid: list, starts: np.ndarray, parents: np.ndarray, group: int) -> bool:
+    """Whether the cells of ``group`` share exactly one point (a quick look at one group; a group of more than
+    :data:`MOST_PIECES` cells is taken for a region: our threshold, far above a polyhedron's faces)."""
+    corners, n = [], 0
+    for k, i in enumerate(solid):
+        rows = np.flatnonzero(parents[starts[k]:starts[k + 1]] == group)
+        n += rows.size
+        if n > MOST_PIECES:
+            return False
+        corners.append(np.asarray(raw.cells[i].data)[rows].reshape(-1))
+    _, times = np.unique(np.concatenate(corners), return_counts=True)
+    return int(np.count_nonzero(times == n)) == 1
 
 
 def _closed_about_centres(pieces: list, centre_of: np.ndarray) -> bool:
