@@ -225,3 +225,35 @@ def warnings_kept():
             return caught
 
     return _Kept(record=True)
+
+
+def test_cells_written_as_tetrahedra_about_their_centre_and_in_blocks(tmp_path):
+    # every face a pair of triangles: 12 tetrahedra a cube, no pyramid; a cube of side h is one cell of size h
+    # [analytic]; two such files as the blocks of a .vtm keep their own cells apart (54 whole cells)
+    mesh = grid_mesh((3, 3, 3), kind="hexahedron")
+    conn = mesh.blocks[0].connectivity
+    points, first, rest, rest_ids = list(mesh.points), [], [], []
+    for k, row in enumerate(conn):
+        centre = len(points)
+        points.append(mesh.points[row].mean(axis=0))
+        pieces = []
+        for f in FACES["hexahedron"]:
+            a, b, c, d = (int(p) for p in row[list(f)])
+            pieces += [[4, a, c, b, centre], [4, a, d, c, centre]]
+        first.append(pieces[0])
+        rest += pieces[1:]
+        rest_ids += [k] * (len(pieces) - 1)
+    grid = pv.UnstructuredGrid(np.array([x for cell in first + rest for x in cell]),
+                               np.full(len(first + rest), pv.CellType.TETRA, np.uint8), np.array(points))
+    grid.cell_data["whole"] = np.concatenate([np.arange(len(conn)), rest_ids]).astype(np.int64)
+    assert (grid.compute_cell_sizes().cell_data["Volume"] > 0).all()  # [lib: vtkCellSizeFilter]
+    grid.save(str(tmp_path / "tetra.vtu"))
+    with pytest.warns(ReadingNote, match=r"324 tetrahedra read as the 27 whole cells that cell array 'whole'"):
+        mesh_read = Series(str(tmp_path / "tetra.vtu")).read(0).mesh
+    assert mesh_read.n_whole_cells == 27
+    np.testing.assert_allclose(mesh_read.cell_sizes, 1 / 3, rtol=1e-9)
+    pv.MultiBlock({"a": grid, "b": grid.translate((1, 0, 0))}).save(str(tmp_path / "two.vtm"))
+    with pytest.warns(ReadingNote):
+        mesh_read = Series(str(tmp_path / "two.vtm")).read(0).mesh
+    assert mesh_read.n_cells == 648 and mesh_read.n_whole_cells == 54
+    np.testing.assert_allclose(mesh_read.cell_sizes, 1 / 3, rtol=1e-9)
