@@ -147,7 +147,10 @@ def test_a_closed_box_of_decomposed_cells_is_closed(tmp_path, hexahedra):
         assert not any(f.kind == "open_boundary" for f in res.findings)
         assert not any("lost" in f.text for f in res.findings), [f.text for f in res.findings]
         results[kind] = res
+    from phasegauge.run._report_data import cells_read_as
+
     assert any("read as the" in line for line in results["decomposed"].reading)
+    assert len(cells_read_as(results["decomposed"].results)) == 1 and not cells_read_as(results["hexahedra"].results)
     assert not any("read as the" in line for line in results["hexahedra"].reading)
     np.testing.assert_allclose(results["decomposed"].steps["phase_volume"], results["hexahedra"].steps["phase_volume"],
                                rtol=1e-12)

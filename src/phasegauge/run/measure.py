@@ -421,8 +421,7 @@ def _reading(record: dict, results) -> list:
     data, in the series' ``record``, and volume-format blocks of faces:
     :class:`~phasegauge.errors.BlocksLeftOutNote`), how cells were read (the other
     :class:`~phasegauge.errors.ReadingNote` lines, each once)."""
-    from ..errors import BlocksLeftOutNote
-    from ._report_data import blocks_left_out
+    from ._report_data import blocks_left_out, cells_read_as
 
     lines = []
     sources = [r.field_source for r in results if getattr(r, "field_source", "") and r.skipped is None]
@@ -432,9 +431,7 @@ def _reading(record: dict, results) -> list:
     if left_out:
         lines.append(f"multiblock blocks left out: {', '.join(left_out)} "
                      "(boundary patches: the volume blocks are read)")
-    notes = [note.what for r in results if r.skipped is None for note in (getattr(r, "notes", None) or [])
-             if not isinstance(note, BlocksLeftOutNote)]
-    return lines + list(dict.fromkeys(notes))
+    return lines + cells_read_as(results)
 
 
 def _check_measured_times(series, indices, options) -> None:
