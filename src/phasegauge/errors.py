@@ -36,6 +36,7 @@ __all__ = [
     "MeshWarning",
     "BlocksLeftOutNote",
     "CornerCopiesNote",
+    "ReadingNote",
     "OldNameWarning",
     "collapse_warnings",
     "numbers_masked",
@@ -197,7 +198,12 @@ class MeshWarning(PhasegaugeWarning):
     """The mesh has inverted or zero-size cells, or duplicate points that were merged."""
 
 
-class BlocksLeftOutNote(MeshWarning):
+class ReadingNote(MeshWarning):
+    """How the cells or blocks of a file were read, said as an info line of a run (``inspect``: how the cells
+    were read), not as a finding: cells a writer decomposed read as whole cells, blocks left out."""
+
+
+class BlocksLeftOutNote(ReadingNote):
     """Blocks of a multiblock file left out as boundary patches (volume-format files of faces only): said
     where the polygon-data patches left out are said (an info line of a run, ``inspect``'s left-out blocks),
     not as a finding. ``names``: the blocks' names, as the file names them (read from here, not the text)."""
@@ -210,7 +216,7 @@ class BlocksLeftOutNote(MeshWarning):
         return (type(self), (self.what, self.where, self.names))
 
 
-class CornerCopiesNote(MeshWarning):
+class CornerCopiesNote(ReadingNote):
     """Cells written each with their own copies of their corners (no point shared by two cells), whose copies'
     point values agree, merged into shared points: the figures are those of the shared-point mesh, so it is an
     info line of a run, not a finding."""

@@ -28,6 +28,7 @@ from ..errors import (FieldShapeError, InputFileNotFound, MeshWarning, Phasegaug
 from ..model._places import coincident_points, corner_means, first_copies
 from ..model.mesh import Mesh
 from ._cells_refused import cell_type_refused, check_cells_left_out
+from ._decomposed_cells import mark_decomposed_cells
 
 __all__ = ["StepFields", "read_with_meshio", "new_mesh", "mesh_and_fields", "step_fields",
            "diagnose_read_failure", "hdf5_problem"]
@@ -240,7 +241,7 @@ def read_with_meshio(path: str, fmt: str, *, fallback=None):
                 return raw
         raise diagnose_read_failure(path, fmt, exc) from None
     check_cells_left_out(printed.getvalue(), path)
-    return convex_point_sets(raw)
+    return mark_decomposed_cells(convex_point_sets(raw), path)
 
 
 def new_mesh(points, cells, *, point_data=None, cell_data=None, field_data=None):

@@ -8,7 +8,7 @@ import warnings
 import numpy as np
 
 from ..errors import (BlocksLeftOutNote, FieldNotFoundError, InputError, InputFileNotFound, MeshWarning,
-                      PhasegaugeWarning, SeriesWarning, SkippedStepWarning, collapse_warnings)
+                      PhasegaugeWarning, ReadingNote, SeriesWarning, SkippedStepWarning, collapse_warnings)
 from ..model.axes import AXIS_NAMES
 from . import Series
 
@@ -66,7 +66,8 @@ def describe_series(path, *, scan: str = "auto", sort_by_time: bool = False) -> 
                for w in caught if issubclass(w.category, PhasegaugeWarning)]
     patches = [name for w in caught if isinstance(w.message, BlocksLeftOutNote)
                for name in w.message.names]  # blocks of faces in a volume format: left out as .vtp ones
-    records = [rec for rec in records if not issubclass(rec[0], BlocksLeftOutNote)]
+    # how cells were read is said as 'cells_read_as' (blocks left out as 'blocks_left_out'): no warning
+    records = [rec for rec in records if not issubclass(rec[0], ReadingNote)]
     desc["blocks_left_out"] = list(dict.fromkeys(desc["blocks_left_out"] + patches))
     records += [(SkippedStepWarning, f"{err.what}; {err.fix}", err.where)
                 for err in desc.pop("_errors")]

@@ -272,6 +272,7 @@ def _page(result, series, pngs, execution, version, *, written=(), contours=Fals
                      *([("blocks left out", ", ".join(series["blocks_left_out"])
                          + " (boundary patches: the volume blocks are read)")]
                        if series.get("blocks_left_out") else []),
+                     *([("cells read as", series["cells_read_as"])] if series.get("cells_read_as") else []),
                      *([("step order", series["order"])] if "order" in series else []),
                      ("analyses", ", ".join(opts.analyses)), *_ran(opts),
                      ("workers", execution.get("workers")), ("scheduler", execution.get("scheduler") or "none")]

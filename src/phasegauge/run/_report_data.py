@@ -75,6 +75,16 @@ def blocks_left_out(record: dict, results) -> list:
     return list(dict.fromkeys(names))
 
 
+def cells_read_as(results) -> list:
+    """How the steps' cells were read, each note once: the :class:`~phasegauge.errors.ReadingNote` lines of
+    their ``notes`` other than blocks left out (cells written decomposed, read as whole cells; cells with their own
+    copies of their corners, merged); [] when none."""
+    from ..errors import BlocksLeftOutNote
+
+    return list(dict.fromkeys(note.what for r in results if getattr(r, "skipped", None) is None
+                              for note in (getattr(r, "notes", None) or []) if not isinstance(note, BlocksLeftOutNote)))
+
+
 def measured_as(results, *, keep_3d: bool = False) -> dict:
     """How the steps were measured: ``dimension`` and, for a quasi-2D mesh, ``depth`` and ``measured_as``.
 
@@ -152,6 +162,9 @@ def measure_report_data(series, result, record: dict | None = None) -> dict:
     left_out = blocks_left_out(record, results)
     if left_out:
         record["blocks_left_out"] = left_out
+    read_as = cells_read_as(results)
+    if read_as:
+        record["cells_read_as"] = "; ".join(read_as)
     return {
         "series": record,
         "inputs": series_input_files(series, results),

@@ -263,9 +263,12 @@ def check_output_place(series, out) -> None:
 
 
 def _records(caught) -> list:
-    """(category, what, where) of the phasegauge warnings among ``caught``."""
+    """(category, what, where) of the phasegauge warnings among ``caught``; how cells were read
+    (:class:`~phasegauge.errors.ReadingNote`, met when the series' files are looked at) is said by the steps."""
+    from ..errors import ReadingNote
+
     return [(w.category, getattr(w.message, "what", str(w.message)), getattr(w.message, "where", ""))
-            for w in caught if issubclass(w.category, PhasegaugeWarning)]
+            for w in caught if issubclass(w.category, PhasegaugeWarning) and not issubclass(w.category, ReadingNote)]
 
 
 def _measure(series, indices, options, out, txn, *, workers, threads, scheduler, overwrite, resume, progress,
@@ -416,9 +419,9 @@ def _write_contour_listing(contour_dir: str, results) -> None:
 def _reading(record: dict, results) -> list:
     """Info lines on what the run read: a field's copy when it has two, multiblock blocks left out (polygon
     data, in the series' ``record``, and volume-format blocks of faces:
-    :class:`~phasegauge.errors.BlocksLeftOutNote`), cells written with their own copies of their corners
-    (:class:`~phasegauge.errors.CornerCopiesNote`)."""
-    from ._report_data import blocks_left_out
+    :class:`~phasegauge.errors.BlocksLeftOutNote`), how cells were read (the other
+    :class:`~phasegauge.errors.ReadingNote` lines, each once)."""
+    from ._report_data import blocks_left_out, cells_read_as
 
     lines = []
     sources = [r.field_source for r in results if getattr(r, "field_source", "") and r.skipped is None]
@@ -428,13 +431,7 @@ def _reading(record: dict, results) -> list:
     if left_out:
         lines.append(f"multiblock blocks left out: {', '.join(left_out)} "
                      "(boundary patches: the volume blocks are read)")
-    from ..errors import CornerCopiesNote
-
-    copies = next((note.what for r in results for note in getattr(r, "notes", ()) or ()
-                   if isinstance(note, CornerCopiesNote)), None)
-    if copies:
-        lines.append(copies)
-    return lines
+    return lines + cells_read_as(results)
 
 
 def _check_measured_times(series, indices, options) -> None:

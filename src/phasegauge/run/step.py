@@ -18,9 +18,9 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
-from ..errors import (AnalysisError, BlocksLeftOutNote, CornerCopiesNote, FieldNotFoundError, InputError,
-                      InputFileNotFound, MeshWarning, NonFiniteWarning, PhasegaugeError, PhasegaugeWarning,
-                      SeriesError, UnsupportedMeshError, short_text)
+from ..errors import (AnalysisError, FieldNotFoundError, InputError, InputFileNotFound, MeshWarning,
+                      NonFiniteWarning, PhasegaugeError, PhasegaugeWarning, ReadingNote, SeriesError,
+                      UnsupportedMeshError, short_text)
 from ..model.axes import AXIS_INDEX
 from ..model.fields import vector_field
 from ..model.indicator import make_indicator
@@ -71,7 +71,7 @@ class StepResult:
     reused: bool = False
     error: PhasegaugeError | None = None  # why the step was skipped
     warning_records: list = field(default_factory=list)  # (category, what, where) of the step's warnings
-    notes: list = field(default_factory=list)  # its info lines: the BlocksLeftOutNote warnings themselves
+    notes: list = field(default_factory=list)  # its info lines: the ReadingNote warnings themselves
     dimension: int = 0
     outline: MeshOutline | None = None
     extra: object = None  # what options.step_extra returned (e.g. c sampled for a comparison)
@@ -548,10 +548,9 @@ class StepRunner:
         if result.skipped is None:  # a skipped step's warnings are about what made it fail
             records = [(w.category, getattr(w.message, "what", str(w.message)), info.where)
                        for w in caught if issubclass(w.category, PhasegaugeWarning)]
-            # blocks left out and corner copies merged are info lines of the run, not findings: kept apart
-            notes = (BlocksLeftOutNote, CornerCopiesNote)
-            result.notes = [w.message for w in caught if isinstance(w.message, notes)]
-            result.warning_records = [rec for rec in records if not issubclass(rec[0], notes)]
+            # how cells or blocks were read (blocks left out) is an info line of the run, not a finding: kept apart
+            result.notes = [w.message for w in caught if isinstance(w.message, ReadingNote)]
+            result.warning_records = [rec for rec in records if not issubclass(rec[0], ReadingNote)]
         result.seconds = time.perf_counter() - start
         result.file_sha256 = entry.file_sha256 if entry is not None else ""
         if entry is not None and result.skipped is None:  # a bad step is tried again on resume
