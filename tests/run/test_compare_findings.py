@@ -200,6 +200,20 @@ def test_phases_taken_the_wrong_way_round_are_a_finding(tmp_path):
     assert not [m for m in said if "opposite phases" in m]
 
 
+def test_opposite_phases_of_drops_a_third_of_a_radius_apart_are_a_finding(tmp_path):
+    # the drops 0.35 R apart agree only in part (Dice with the right phases: the lens of two discs 0.07 apart,
+    # 0.774 [MathWorld, above]); measured the wrong way round they read Dice 0.05: still the finding, the flip
+    # gaining far more than two unlike patterns would
+    times = [0.0, 0.1]
+    a = _run(tmp_path / "a", times, order=True)
+    b = _run(tmp_path / "b", times, shift=0.35 * R)
+    result, said, page, manifest = _compare(RunSpec(a, "c", (-1, 1)), RunSpec(b, "c"), tmp_path / "c")
+    table = result.comparison
+    flipped = flipped_dice(table["dice"], table["volume_a"], table["volume_b"], table["compared_volume"])
+    assert np.allclose(flipped, _lens(0.35 * R) / (np.pi * R**2), atol=0.01) and (table["dice"] < 0.1).all()
+    assert any(m.startswith("the runs appear to measure opposite phases at 2 of 2 pairs") for m in said)
+
+
 def _pattern(n, seed, t):
     """A 50/50 spinodal-like pattern on n x n cells: noise smoothed over a length 0.05 + 0.1 t (periodic), its
     median taken off; the phase where it is positive."""
@@ -235,7 +249,8 @@ def test_two_uncorrelated_half_and_half_patterns_are_not_opposite_phases(tmp_pat
         a, b = tiled["a", k], tiled["b", k]
         dice = lambda p, q: 2 * np.count_nonzero(p & q) / (np.count_nonzero(p) + np.count_nonzero(q))
         assert table["dice"][k] == pytest.approx(dice(a, b), abs=0.03) and table["dice"][k] < 0.5
-        assert flipped[k] == pytest.approx(min(dice(a, ~b), dice(~a, b)), abs=0.03) and flipped[k] < 0.8
+        assert flipped[k] == pytest.approx(min(dice(a, ~b), dice(~a, b)), abs=0.03)
+        assert flipped[k] - table["dice"][k] < 0.3  # no better flipped (our threshold)
     assert not [m for m in said if "opposite phases" in m]
     assert not [m for m in manifest["comparison_warnings"] if "opposite phases" in m]
 
