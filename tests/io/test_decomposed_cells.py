@@ -13,6 +13,8 @@ polyhedra, which the reader cones about their centres itself (pyramids and tetra
 are the same pieces, so every width reads the same.
 """
 
+import warnings
+
 import numpy as np
 import pytest
 
@@ -260,3 +262,37 @@ def test_cells_written_as_tetrahedra_about_their_centre_and_in_blocks(tmp_path):
         mesh_read = Series(str(tmp_path / "two.vtm")).read(0).mesh
     assert mesh_read.n_cells == 648 and mesh_read.n_whole_cells == 54
     np.testing.assert_allclose(mesh_read.cell_sizes, 1 / 3, rtol=1e-9)
+
+
+def test_tetrahedra_refined_about_their_centroid_keep_their_small_cells(tmp_path):
+    # a tetrahedral mesh refined by splitting each tetrahedron into 4 about its centroid, the solver's cells the
+    # small ones, an integer array naming each one's coarse tetrahedron: four tetrahedra about a point are no
+    # cell written decomposed (a four-faced cell is written whole), so the small cells stay the cells;
+    # their volumes are VTK's [lib: vtkCellSizeFilter]
+    g = pv.ImageData(dimensions=(4, 4, 4), spacing=(1 / 3,) * 3).triangulate()
+    corners = np.asarray(g.cell_connectivity).reshape(-1, 4)
+    points = np.asarray(g.points)
+    centres = np.arange(len(corners)) + len(points)
+    faces = [(1, 2, 3), (0, 3, 2), (0, 1, 3), (0, 2, 1)]
+    small = np.vstack([np.c_[corners[:, list(f)], centres] for f in faces])
+    grid = pv.UnstructuredGrid({pv.CellType.TETRA: small}, np.vstack([points, points[corners].mean(axis=1)]))
+    volume = grid.compute_cell_sizes().cell_data["Volume"]
+    small[volume < 0] = small[volume < 0][:, [1, 0, 2, 3]]
+    grid = pv.UnstructuredGrid({pv.CellType.TETRA: small}, grid.points)
+    grid.cell_data["coarse"] = np.tile(np.arange(len(corners)), 4).astype(np.int32)
+    grid.save(str(tmp_path / "refined.vtu"))
+    with warnings.catch_warnings():
+        warnings.simplefilter("error", ReadingNote)
+        mesh = Series(str(tmp_path / "refined.vtu")).read(0).mesh
+    assert mesh.cell_parents is None and mesh.n_cells == 4 * len(corners)
+    np.testing.assert_allclose(mesh.cell_measures, np.abs(grid.compute_cell_sizes().cell_data["Volume"]), rtol=1e-12)
+
+
+def test_notes_of_one_kind_with_counts_that_differ_are_said_once():
+    # one line per kind of note, however many steps or blocks gave it with their own counts
+    from types import SimpleNamespace
+
+    from phasegauge.run._report_data import cells_read_as
+
+    steps = [SimpleNamespace(skipped=None, notes=[ReadingNote(f"{n} pyramids read as whole cells")]) for n in (6, 12, 6)]
+    assert cells_read_as(steps) == ["6 pyramids read as whole cells (and 1 more alike, by step or block)"]

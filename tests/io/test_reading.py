@@ -175,6 +175,9 @@ def test_xdmf_time_series_with_changing_mesh(tmp_path):
     from phasegauge.io.describe import describe_series
 
     assert describe_series(tmp_path / "moving.xdmf")["mesh_changes"] is True
+    # one mesh, one step: no change (the first step's hash and the later steps' are one kind of hash)
+    to_meshio(grid_mesh((4, 4)), point_data={"phi": np.zeros(25)}).write(tmp_path / "one.vtu")
+    assert describe_series(tmp_path / "one.vtu")["mesh_changes"] is False
 
 
 def test_xdmf_missing_hdf5_names_the_step(tmp_path, monkeypatch):

@@ -119,6 +119,13 @@ def _decomposed(raw, solid: list, name: str):
         pieces.append((kind, np.asarray(raw.cells[i].data, dtype=np.int64)[pick], parents[pick + starts[k]]))
     if (counts[counts > 1] < 4).any():
         return None
+    # four tetrahedra about a point are a tetrahedron refined about its centre, never a cell written decomposed
+    # (a four-faced cell is written whole): a refined tetrahedral mesh whose array numbers the coarse cells
+    with_pyramid = np.zeros(values.size, dtype=bool)
+    for kind, _, group in pieces:
+        with_pyramid[group] |= kind == "pyramid"
+    if ((counts == 4) & ~with_pyramid).any():
+        return None
     uses = np.bincount(np.concatenate([np.asarray(b.data, dtype=np.int64).reshape(-1) for b in raw.cells
                                        if np.asarray(b.data).dtype.kind in "iu"]), minlength=len(raw.points))
     # each group's centre: a pyramid's apex, else a tetrahedron's corner used as often as the group has pieces

@@ -104,7 +104,7 @@ def _describe(series, scan: str) -> dict:
     else:
         indices = sorted({first.index, n - 1})
     stats: dict = {}
-    meshes = {mesh.signature}
+    meshes = {mesh.cells_signature}  # the same hash as the steps' below
     dimensions = {mesh.dimension}
     scanned = []
     for i in indices:

@@ -76,13 +76,20 @@ def blocks_left_out(record: dict, results) -> list:
 
 
 def cells_read_as(results) -> list:
-    """How the steps' cells were read, each note once: the :class:`~phasegauge.errors.ReadingNote` lines of
+    """How the steps' cells were read, each kind of note once (its first text, with how many more differ): the
+    :class:`~phasegauge.errors.ReadingNote` lines of
     their ``notes`` other than blocks left out (cells written decomposed, read as whole cells; cells with their own
     copies of their corners, merged); [] when none."""
     from ..errors import BlocksLeftOutNote
 
-    return list(dict.fromkeys(note.what for r in results if getattr(r, "skipped", None) is None
-                              for note in (getattr(r, "notes", None) or []) if not isinstance(note, BlocksLeftOutNote)))
+    kinds: dict = {}  # per kind of note, its texts once each (the counts in them differ by step or block)
+    for r in results:
+        if getattr(r, "skipped", None) is None:
+            for note in getattr(r, "notes", None) or []:
+                if not isinstance(note, BlocksLeftOutNote):
+                    kinds.setdefault(type(note), {})[note.what] = None
+    return [next(iter(texts)) + (f" (and {len(texts) - 1} more alike, by step or block)" if len(texts) > 1 else "")
+            for texts in kinds.values()]
 
 
 def measured_as(results, *, keep_3d: bool = False) -> dict:
