@@ -294,5 +294,6 @@ def test_notes_of_one_kind_with_counts_that_differ_are_said_once():
 
     from phasegauge.run._report_data import cells_read_as
 
-    steps = [SimpleNamespace(skipped=None, notes=[ReadingNote(f"{n} pyramids read as whole cells")]) for n in (6, 12, 6)]
+    steps = [SimpleNamespace(skipped=None, notes=[ReadingNote(f"{n} pyramids read as whole cells")])
+             for n in (6, 12, 6)]
     assert cells_read_as(steps) == ["6 pyramids read as whole cells (and 1 more alike, by step or block)"]
