@@ -102,9 +102,12 @@ def beyond_reach_points(mesh: Mesh, u: np.ndarray, level: float) -> tuple[np.nda
     # at 1M tetrahedra), and the graph holds the band's (cell, corner) pairs only
     finite = np.isfinite(u)
     band = finite & (u > _LOW) & (u < _HIGH)
-    high = corner_extremes(mesh, np.where(finite, u, -np.inf)).high  # a finite corner at or above the level
-    crossed = (high >= level) & (corner_extremes(mesh, np.where(finite, u, np.inf)).low < level)
-    del high
+    if finite.all():  # one pass over the corners
+        extremes = corner_extremes(mesh, u)
+        crossed = (extremes.high >= level) & (extremes.low < level)
+    else:  # a finite corner at or above the level, and one below it
+        high = corner_extremes(mesh, np.where(finite, u, -np.inf)).high
+        crossed = (high >= level) & (corner_extremes(mesh, np.where(finite, u, np.inf)).low < level)
     rows, cols = [], []
     for block, start in zip(mesh.blocks, mesh.block_offsets[:-1]):
         cell, corner = np.nonzero(band[block.connectivity])

