@@ -1,7 +1,7 @@
 """The rising-bubble checks of a compare run on exact cell fractions of an analytic bubble: the bubble's
 resolution decides whether its circularity is judged, a run in the x-z plane reads as the x-y one, and a run
 whose outputs were lost (files truncated, so skipped) is not judged across the gap; a quadtree (two levels,
-refined about the interface, as Basilisk writes it) is judged by its finest cells, as quads.
+refined about the interface, as a quadtree solver writes it) is judged by its finest cells, as quads.
 
 Outside reference: an ellipse of area pi R^2 (R = 0.25) in the 1 x 2 box (Hysing et al. 2009, case 1
 geometry), aspect k(t) = 1 + (k1 - 1) exp(-((t - 1.9) / 0.7)^2) with k1 chosen (scipy brentq) so that its

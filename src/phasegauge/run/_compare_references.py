@@ -42,7 +42,7 @@ def bubble_cells(result, series) -> dict:
     median size of the cells the interface crosses (indicator strictly between 0.01 and 0.99) in the first
     analysed step, read again from ``series`` (the run's :class:`~phasegauge.io.Series`) and taken as measure
     takes it (a slab one cell thick as its 2D plane); ``quad_grid`` where the mesh is a regular grid or those
-    cells are axis-aligned squares (a quadtree's leaves, a refined mesh as Basilisk writes it). Empty for a
+    cells are axis-aligned squares (a quadtree's leaves, a refined mesh as a quadtree solver writes it). Empty for a
     diffuse run or a level set, a 3D mesh, or a mesh that cannot be read again."""
     import warnings
 
