@@ -99,30 +99,40 @@ def beyond_reach_points(mesh: Mesh, u: np.ndarray, level: float) -> tuple[np.nda
     from scipy.sparse.csgraph import connected_components
 
     # from the blocks' corners, a block at a time: no incidence matrix is made (nor kept on the mesh: 52 MB
-    # at 1M tetrahedra), and the graph holds the band's (cell, corner) pairs only
+    # at 1M tetrahedra); the graph holds the cells that have a band corner and the band points only
     finite = np.isfinite(u)
     band = finite & (u > _LOW) & (u < _HIGH)
     if finite.all():  # one pass over the corners
         extremes = corner_extremes(mesh, u)
-        crossed = (extremes.high >= level) & (extremes.low < level)
-    else:  # a finite corner at or above the level, and one below it
+        low, high = extremes.low, extremes.high
+        del extremes
+    else:  # over the finite corners
         high = corner_extremes(mesh, np.where(finite, u, -np.inf)).high
-        crossed = (high >= level) & (corner_extremes(mesh, np.where(finite, u, np.inf)).low < level)
+        low = corner_extremes(mesh, np.where(finite, u, np.inf)).low
+    crossed = (high >= level) & (low < level)  # a finite corner at or above the level, and one below it
+    maybe = np.flatnonzero((low < _HIGH) & (high > _LOW))  # the cells that can have a band corner
+    del low, high
     rows, cols = [], []
     for block, start in zip(mesh.blocks, mesh.block_offsets[:-1]):
-        cell, corner = np.nonzero(band[block.connectivity])
-        rows.append(cell + int(start))
-        cols.append(block.connectivity[cell, corner])
+        start, n = int(start), block.connectivity.shape[0]
+        picked = maybe[np.searchsorted(maybe, start):np.searchsorted(maybe, start + n)] - start
+        corners = block.connectivity[picked]
+        cell, corner = np.nonzero(band[corners])
+        rows.append(picked[cell] + start)
+        cols.append(corners[cell, corner])
     rows, cols = np.concatenate(rows), np.concatenate(cols)
-    n_cells = mesh.n_cells
-    # cells and points as the nodes of one graph: a cell joins its band corners
-    graph = sparse.coo_matrix((np.ones(rows.size), (rows, cols + n_cells)), shape=(n_cells + mesh.n_points,) * 2)
-    _, label = connected_components(graph, directed=False)
-    reached = np.zeros(label.max() + 1, dtype=bool)
-    reached[label[:n_cells][crossed]] = True
-    has_band = np.zeros(n_cells, dtype=bool)
-    has_band[rows] = True
-    near = reached[label[:n_cells]] & (crossed | has_band)
+    near = crossed.copy()  # a crossed cell is within reach
+    if rows.size:  # cells and band points as the nodes of one graph: a cell joins its band corners
+        cell_node = np.full(mesh.n_cells, -1, dtype=np.int64)
+        cells_in = np.flatnonzero(np.bincount(rows, minlength=mesh.n_cells))
+        cell_node[cells_in] = np.arange(cells_in.size)
+        point_node = np.cumsum(band) - 1 + cells_in.size
+        size = cells_in.size + int(np.count_nonzero(band))
+        graph = sparse.coo_matrix((np.ones(rows.size), (cell_node[rows], point_node[cols])), shape=(size, size))
+        _, label = connected_components(graph, directed=False)
+        reached = np.zeros(int(label.max()) + 1, dtype=bool)
+        reached[label[:cells_in.size][crossed[cells_in]]] = True  # the patches a crossing joins
+        near[cells_in] |= reached[label[:cells_in.size]]
     within = np.zeros(mesh.n_points, dtype=bool)
     for block, start in zip(mesh.blocks, mesh.block_offsets[:-1]):
         within[block.connectivity[near[int(start):int(start) + block.connectivity.shape[0]]].ravel()] = True
