@@ -135,3 +135,42 @@ def fixed_width_pattern(n: int, periods, width_cells: float):
         d = (d - 0.5 * np.sign(d))[n:2 * n, n:2 * n]  # cell centres half a cell off the boundary: at +-0.5
         fields.append(0.5 * (1 + np.tanh(d / width_cells))[ix, iy])
     return mesh, fields
+
+
+def hexahedron_faces_split_in_x(points, row):
+    """The faces of hexahedron ``row`` (outward, :data:`phasegauge.model.cells.FACES`), its two x-normal faces as
+    two triangles each (the diagonal from the face's lowest point number, the same from both sides): a cell a
+    reader must split (``points``: the mesh's)."""
+    import numpy as np
+
+    from phasegauge.model.cells import FACES
+
+    faces = []
+    for f in FACES["hexahedron"]:
+        face = [int(p) for p in row[list(f)]]
+        if np.ptp(points[face, 0]) < 1e-12:  # an x-normal face
+            i = face.index(min(face))
+            a, b, c, d = face[i:] + face[:i]
+            faces += [[a, b, c], [a, c, d]]
+        else:
+            faces.append(face)
+    return faces
+
+
+def hexahedra_as_polyhedra(mesh, chosen):
+    """The hexahedra of ``mesh`` as a pyvista grid: the cells ``chosen`` (a mask) as VTK polyhedra whose faces are
+    :func:`hexahedron_faces_split_in_x`, the others as VTK hexahedra."""
+    import numpy as np
+    import pyvista as pv
+
+    stream, types = [], []
+    for k, row in enumerate(mesh.blocks[0].connectivity):
+        if not chosen[k]:
+            stream += [8, *row]
+            types.append(pv.CellType.HEXAHEDRON)
+            continue
+        faces = hexahedron_faces_split_in_x(mesh.points, row)
+        cell = [len(faces)] + [x for f in faces for x in [len(f), *f]]
+        stream += [len(cell), *cell]
+        types.append(pv.CellType.POLYHEDRON)
+    return pv.UnstructuredGrid(np.array(stream), np.array(types, np.uint8), mesh.points)

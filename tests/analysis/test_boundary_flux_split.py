@@ -17,39 +17,13 @@ import pytest
 
 pv = pytest.importorskip("pyvista")
 
+from conftest import hexahedra_as_polyhedra  # noqa: E402
 from phasegauge.analysis.conservation import open_boundary_flux  # noqa: E402
 from phasegauge.io import Series  # noqa: E402
 from phasegauge.meshgen import grid_mesh  # noqa: E402
 from phasegauge.model._whole_cells import whole_cells  # noqa: E402
-from phasegauge.model.cells import FACES  # noqa: E402
 
 N = 8
-
-
-def _grid(mesh, polyhedra):
-    """The hexahedra of ``mesh`` as a pyvista grid: the cells ``polyhedra`` (a mask) as VTK polyhedra
-    whose two x-normal faces are written as two triangles each (the diagonal from the face's lowest
-    point number, the same from both sides), the others as VTK hexahedra."""
-    conn = mesh.blocks[0].connectivity
-    stream, types = [], []
-    for k, row in enumerate(conn):
-        if not polyhedra[k]:
-            stream += [8, *row]
-            types.append(pv.CellType.HEXAHEDRON)
-            continue
-        faces = []
-        for f in FACES["hexahedron"]:
-            face = [int(p) for p in row[list(f)]]
-            if np.ptp(mesh.points[face, 0]) < 1e-12:  # an x-normal face
-                i = face.index(min(face))
-                a, b, c, d = face[i:] + face[:i]
-                faces += [[a, b, c], [a, c, d]]
-            else:
-                faces.append(face)
-        cell = [len(faces)] + [x for f in faces for x in [len(f), *f]]
-        stream += [len(cell), *cell]
-        types.append(pv.CellType.POLYHEDRON)
-    return pv.UnstructuredGrid(np.array(stream), np.array(types, np.uint8), mesh.points)
 
 
 def _cellular(x, y, z):
@@ -81,7 +55,7 @@ def meshes(tmp_path_factory):
     read = {}
     for name, polyhedra in (("polyhedra", np.ones(mesh.n_cells, bool)), ("band", band),
                             ("hexahedra", np.zeros(mesh.n_cells, bool))):
-        grid = _grid(mesh, polyhedra)
+        grid = hexahedra_as_polyhedra(mesh, polyhedra)
         for flow in (_cellular, _no_slip, _plug, _duct):
             grid.cell_data[flow.__name__] = flow(x, y, z)
         grid.cell_data["c"] = ((x > 0.6) & (y < 0.4)).astype(float)
@@ -144,7 +118,7 @@ def test_a_closed_box_of_polyhedra_gives_no_open_boundary_finding(tmp_path):
 
     mesh = grid_mesh((N, N, N), kind="hexahedron")
     x, y, z = mesh.cell_centroids.T
-    grid = _grid(mesh, np.ones(mesh.n_cells, bool))
+    grid = hexahedra_as_polyhedra(mesh, np.ones(mesh.n_cells, bool))
     grid.cell_data["U"] = _cellular(x, y, z)
     grid.cell_data["alpha"] = ((x > 0.6) & (y < 0.4)).astype(float)
     for k in range(3):

@@ -20,27 +20,13 @@ import pytest
 
 pv = pytest.importorskip("pyvista")
 
+from conftest import hexahedra_as_polyhedra, hexahedron_faces_split_in_x  # noqa: E402
 from phasegauge.errors import ReadingNote  # noqa: E402
 from phasegauge.io import Series  # noqa: E402
 from phasegauge.meshgen import grid_mesh  # noqa: E402
 from phasegauge.model.cells import FACES  # noqa: E402
 
 N = 6
-
-
-def _faces(mesh, row):
-    """The faces of hexahedron ``row`` (outward), its two x-normal faces as two triangles each (the diagonal
-    from the face's lowest point number, the same from both sides)."""
-    faces = []
-    for f in FACES["hexahedron"]:
-        face = [int(p) for p in row[list(f)]]
-        if np.ptp(mesh.points[face, 0]) < 1e-12:
-            i = face.index(min(face))
-            a, b, c, d = face[i:] + face[:i]
-            faces += [[a, b, c], [a, c, d]]
-        else:
-            faces.append(face)
-    return faces
 
 
 def _decomposed(mesh, chosen, name="cellID"):
@@ -55,8 +41,9 @@ def _decomposed(mesh, chosen, name="cellID"):
             continue
         centre = len(points)
         points.append(mesh.points[row].mean(axis=0))
+        # each face turned to face its centre
         pieces = [([len(face) + 1, face[0], *face[:0:-1], centre], pv.CellType.PYRAMID if len(face) == 4 else
-                   pv.CellType.TETRA) for face in _faces(mesh, row)]  # each face turned to face its centre
+                   pv.CellType.TETRA) for face in hexahedron_faces_split_in_x(mesh.points, row)]
         first.append(pieces[0])
         rest += pieces[1:]
         rest_ids += [k] * (len(pieces) - 1)
@@ -67,21 +54,6 @@ def _decomposed(mesh, chosen, name="cellID"):
     ids = np.concatenate([np.arange(len(conn)), rest_ids]).astype(np.int32)
     grid.cell_data[name] = ids
     return grid, ids
-
-
-def _polyhedra(mesh, chosen):
-    """The same cells, ``chosen`` as VTK polyhedra (faces as :func:`_faces`), the others as hexahedra."""
-    stream, types = [], []
-    for k, row in enumerate(mesh.blocks[0].connectivity):
-        if not chosen[k]:
-            stream += [8, *row]
-            types.append(pv.CellType.HEXAHEDRON)
-            continue
-        faces = _faces(mesh, row)
-        cell = [len(faces)] + [x for f in faces for x in [len(f), *f]]
-        stream += [len(cell), *cell]
-        types.append(pv.CellType.POLYHEDRON)
-    return pv.UnstructuredGrid(np.array(stream), np.array(types, np.uint8), mesh.points)
 
 
 def _cellular(x, y, z):
@@ -170,7 +142,7 @@ def test_widths_in_cells_are_those_of_the_same_cells_the_reader_splits(tmp_path,
     (tmp_path / "d").mkdir()
     (tmp_path / "p").mkdir()
     _save(grid, tmp_path / "d" / "s.vtu", {"phi": phi}, ids)
-    _save(_polyhedra(hexahedra, band), tmp_path / "p" / "s.vtu", {"phi": phi})
+    _save(hexahedra_as_polyhedra(hexahedra, band), tmp_path / "p" / "s.vtu", {"phi": phi})
     got = measure(str(tmp_path / "d" / "s.vtu"), "phi").steps
     own = measure(str(tmp_path / "p" / "s.vtu"), "phi").steps
     for column in ("interface_cells_across", "interface_width_cells", "interface_width", "width_threshold_free",
@@ -193,12 +165,7 @@ def test_a_tetrahedral_mesh_with_an_integer_region_array_is_not_grouped(tmp_path
     grid.cell_data["rank"] = np.zeros(grid.n_cells, np.int32)
     grid.cell_data["cube"] = np.arange(grid.n_cells, dtype=np.int32) // 6  # a cube's 6 tetrahedra share 2 points
     grid.cell_data["c"] = (x > 0.5).astype(float)
-    path = str(tmp_path / "tetra.vtu")
-    grid.save(path)
-    with warnings_kept() as caught:
-        step = Series(path).read(0)
-    assert step.mesh.cell_parents is None and step.mesh.n_whole_cells == grid.n_cells
-    assert not [w for w in caught if issubclass(w.category, ReadingNote)]
+    _assert_read_cell_by_cell(grid, tmp_path / "tetra.vtu")
 
 
 def test_a_hybrid_pyramid_and_tetrahedron_mesh_is_not_grouped(tmp_path, hexahedra):
@@ -212,24 +179,17 @@ def test_a_hybrid_pyramid_and_tetrahedron_mesh_is_not_grouped(tmp_path, hexahedr
     grid.cell_data["halves"] = halves
     del grid.cell_data["cube"]
     grid.cell_data["c"] = (x > 0.5).astype(float)[ids]
-    path = str(tmp_path / "hybrid.vtu")
-    grid.save(path)
-    with warnings_kept() as caught:
-        step = Series(path).read(0)
+    _assert_read_cell_by_cell(grid, tmp_path / "hybrid.vtu")
+
+
+def _assert_read_cell_by_cell(grid, path):
+    """``grid`` saved at ``path`` reads as its own cells, none grouped, and says nothing of how cells were read."""
+    grid.save(str(path))
+    with warnings.catch_warnings(record=True) as caught:
+        warnings.simplefilter("always")
+        step = Series(str(path)).read(0)
     assert step.mesh.cell_parents is None and step.mesh.n_whole_cells == grid.n_cells
     assert not [w for w in caught if issubclass(w.category, ReadingNote)]
-
-
-def warnings_kept():
-    import warnings
-
-    class _Kept(warnings.catch_warnings):
-        def __enter__(self):
-            caught = super().__enter__()
-            warnings.simplefilter("always")
-            return caught
-
-    return _Kept(record=True)
 
 
 def test_cells_written_as_tetrahedra_about_their_centre_and_in_blocks(tmp_path):
