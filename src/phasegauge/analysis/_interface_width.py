@@ -172,8 +172,9 @@ class PreparedWidths:
         beyond, near = beyond_reach_points(mesh, self.clipped, level)
         if not near.any():  # no crossing to reach from
             return None
-        read = bulk_spread(u[beyond], level)  # the point values the widths read: the warning's
-        spread = max(bulk_spread(u[beyond], level, least=1),
+        u = u[beyond]
+        read = bulk_spread(u, level)  # the point values the widths read: the warning's
+        spread = max(bulk_spread(u, level, least=1),
                      0.0 if cells is None else bulk_spread(cells[~near], level, least=1))
         if read > TOO_NOISY:
             warnings.warn(PhasegaugeWarning(
