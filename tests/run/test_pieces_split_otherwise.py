@@ -83,3 +83,15 @@ def test_the_cells_signature_does_not_depend_on_the_numbering():
     assert first.cells_signature == second.cells_signature
     assert Mesh(points * 1.5, [("hexahedron", cells[:, [0, 1, 3, 2, 4, 5, 7, 6]])]).cells_signature \
         != first.cells_signature
+
+
+def test_polygons_of_several_corner_counts_have_a_cells_signature():
+    # a polygon mesh written as two blocks, pentagons and hexagons (widths 5 and 6): the hash groups the blocks
+    # by type and corner count (joining them failed), and stays free of the numbering
+    from phasegauge.model.mesh import Mesh
+
+    points = np.array([[np.cos(a), np.sin(a), 0.0] for a in np.linspace(0, 2 * np.pi, 11)[:-1]])
+    points = np.vstack([points, [[0.0, 0.0, 0.0]]])
+    blocks = [("polygon", np.array([[10, 0, 1, 2, 3]])), ("polygon", np.array([[10, 3, 4, 5, 6, 7]]))]
+    turned = [("polygon", np.array([[3, 4, 5, 6, 7, 10]])), ("polygon", np.array([[1, 2, 3, 10, 0]]))]
+    assert Mesh(points, blocks).cells_signature == Mesh(points, turned).cells_signature

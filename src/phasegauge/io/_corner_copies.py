@@ -15,7 +15,8 @@ from ..errors import CornerCopiesNote
 __all__ = ["corner_copies_note", "COPIES_AGREE"]
 
 #: copies of one corner agree when their values differ by at most this share of the field's range (our
-#: threshold: far above single-precision rounding, 6e-8, far below any difference a field's jump makes)
+#: threshold: far below any difference a field's jump makes), or by the rounding of their own precision
+#: (:func:`_rounding`: a float32 field near 300 with a range of 1 rounds 4 orders of magnitude more coarsely)
 COPIES_AGREE = 1e-6
 
 
@@ -54,7 +55,16 @@ def corner_copies_note(raw, inverse: np.ndarray, own: np.ndarray, duplicates: in
         spread = np.maximum.reduceat(column, starts, axis=0) - np.minimum.reduceat(column, starts, axis=0)
         finite = column[np.isfinite(column)]
         scale = float(finite.max() - finite.min()) if finite.size else 0.0
-        if not (spread <= COPIES_AGREE * max(scale, np.finfo(float).tiny)).all():
+        allowed = max(COPIES_AGREE * scale, _rounding(values.dtype, finite), np.finfo(float).tiny)
+        if not (spread <= allowed).all():
             return None
     return CornerCopiesNote(f"cells written with their own copies of their corners: {duplicates} copies merged "
                             "(cells share their corners now; the copies' point values agree)", where=where)
+
+
+def _rounding(dtype, finite: np.ndarray) -> float:
+    """Four rounding steps of a floating field's own precision at its largest magnitude (0 for integers): what
+    two copies of one value written apart may differ by."""
+    if np.dtype(dtype).kind != "f" or not finite.size:
+        return 0.0
+    return 4.0 * float(np.finfo(dtype).eps) * float(np.abs(finite).max())

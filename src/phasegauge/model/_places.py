@@ -136,8 +136,10 @@ def numbering_free_signature(points, blocks) -> str:
         for axis in range(coordinates.shape[1]):
             key = _mixed(key ^ np.ascontiguousarray(coordinates[:, axis]).view(np.uint64) + _MIX[axis % len(_MIX)])
         h = hashlib.sha256()
-        for cell_type in sorted({b.cell_type for b in blocks}):
-            conn = np.concatenate([np.asarray(b.connectivity) for b in blocks if b.cell_type == cell_type])
+        # blocks of one type and corner count together (polygons of 5 and of 6 corners are two kinds)
+        for cell_type, width in sorted({(b.cell_type, np.shape(b.connectivity)[1]) for b in blocks}):
+            conn = np.concatenate([np.asarray(b.connectivity) for b in blocks
+                                   if b.cell_type == cell_type and np.shape(b.connectivity)[1] == width])
             cell = _mixed(key[conn].sum(axis=1, dtype=np.uint64))
             totals = np.array([cell.sum(dtype=np.uint64), _mixed(cell ^ _MIX[1]).sum(dtype=np.uint64)])
             h.update(f"{cell_type}:{conn.shape[0]}:{conn.shape[1]};".encode())
