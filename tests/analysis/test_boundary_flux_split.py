@@ -21,7 +21,7 @@ from conftest import hexahedra_as_polyhedra  # noqa: E402
 from phasegauge.analysis.conservation import open_boundary_flux  # noqa: E402
 from phasegauge.io import Series  # noqa: E402
 from phasegauge.meshgen import grid_mesh  # noqa: E402
-from phasegauge.model._whole_cells import whole_cells  # noqa: E402
+from phasegauge.model._centroids import whole_cell_centroids  # noqa: E402
 
 N = 8
 
@@ -140,8 +140,7 @@ def test_the_cell_values_offset_bound_covers_a_linear_phase_on_split_cells(meshe
     # exact for a linear field) must cover the difference, 0.7 h [analytic]
     step = meshes[name]
     split = step.mesh.cell_parents is not None
-    centroids = whole_cells(step.mesh).cell_centroids if split else step.mesh.cell_centroids
-    c = centroids[step.mesh.cell_parents if split else slice(None), 0]
+    c = whole_cell_centroids(step.mesh)[step.mesh.cell_parents if split else slice(None), 0]
     out = open_boundary_flux(step.mesh, step.fields.cell_data["_plug"], c, velocity_location="cell",
                              c_location="cell")
     h = 1 / N
