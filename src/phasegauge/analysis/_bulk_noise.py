@@ -71,7 +71,8 @@ def bulk_spread(u: np.ndarray, level: float, *, least: int = SPREAD_SAMPLE) -> f
     return max(1.4826 * float(np.median(np.abs(d))) for d in sampled)
 
 
-def beyond_reach_points(mesh: Mesh, u: np.ndarray, level: float) -> tuple[np.ndarray, np.ndarray]:
+def beyond_reach_points(mesh: Mesh, u: np.ndarray, level: float, *,
+                        extremes=None) -> tuple[np.ndarray, np.ndarray]:
     """The points beyond the contour's reach, and the cells within it.
 
     A point lies within reach when it is a corner of a cell the level crosses (a corner below it, one
@@ -87,6 +88,8 @@ def beyond_reach_points(mesh: Mesh, u: np.ndarray, level: float) -> tuple[np.nda
         Point values rescaled to the bulk values (clipped or not).
     level : float
         The contour level on that scale.
+    extremes : CornerExtremes, optional
+        ``corner_extremes(mesh, u)``, where the caller has them (read only where every value is finite).
 
     Returns
     -------
@@ -102,8 +105,8 @@ def beyond_reach_points(mesh: Mesh, u: np.ndarray, level: float) -> tuple[np.nda
     # at 1M tetrahedra); the graph holds the cells that have a band corner and the band points only
     finite = np.isfinite(u)
     band = finite & (u > _LOW) & (u < _HIGH)
-    if finite.all():  # one pass over the corners
-        extremes = corner_extremes(mesh, u)
+    if finite.all():  # one pass over the corners, or none
+        extremes = corner_extremes(mesh, u) if extremes is None else extremes
         low, high = extremes.low, extremes.high
         del extremes
     else:  # over the finite corners
@@ -123,12 +126,14 @@ def beyond_reach_points(mesh: Mesh, u: np.ndarray, level: float) -> tuple[np.nda
     rows, cols = np.concatenate(rows), np.concatenate(cols)
     near = crossed.copy()  # a crossed cell is within reach
     if rows.size:  # cells and band points as the nodes of one graph: a cell joins its band corners
-        cell_node = np.full(mesh.n_cells, -1, dtype=np.int64)
-        cells_in = np.flatnonzero(np.bincount(rows, minlength=mesh.n_cells))
-        cell_node[cells_in] = np.arange(cells_in.size)
-        point_node = np.cumsum(band) - 1 + cells_in.size
-        size = cells_in.size + int(np.count_nonzero(band))
-        graph = sparse.coo_matrix((np.ones(rows.size), (cell_node[rows], point_node[cols])), shape=(size, size))
+        # rows come in increasing order (cells in order, corners by np.nonzero's row-major order): each cell's
+        # corners are one run of them, so the graph's rows are made as they lie (no sort, no array per cell)
+        starts = np.flatnonzero(np.concatenate(([True], rows[1:] != rows[:-1])))
+        cells_in = rows[starts]
+        point_node = np.cumsum(band, dtype=np.int64) + (cells_in.size - 1)  # a band point's node, after the cells
+        size = int(point_node[-1]) + 1
+        rows_at = np.concatenate((starts, np.full(size - cells_in.size + 1, rows.size)))  # point nodes: no rows
+        graph = sparse.csr_matrix((np.ones(rows.size), point_node[cols], rows_at), shape=(size, size))
         _, label = connected_components(graph, directed=False)
         reached = np.zeros(int(label.max()) + 1, dtype=bool)
         reached[label[:cells_in.size][crossed[cells_in]]] = True  # the patches a crossing joins

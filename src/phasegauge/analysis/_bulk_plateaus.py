@@ -162,11 +162,12 @@ def _side_bulk(c: np.ndarray, level: float, below: bool, q: float):
     g, near = extreme, side
     for _ in range(3):
         near = side[np.abs(side - g) < 0.05]
-        median = float(np.median(near))  # never empty: the extreme has neighbours within 0.05
+        # never empty: the extreme has neighbours within 0.05 (partitioned in place: only its size is read after)
+        median = float(np.median(near, overwrite_input=True))
         if median == g:  # the same g would select the same values again: settled
             break
         g = median
-    return mask, side, g, extreme, near, 1.4826 * float(np.median(np.abs(near - g)))
+    return mask, side, g, extreme, near, 1.4826 * float(np.median(np.abs(near - g), overwrite_input=True))
 
 
 def _holds(side: np.ndarray, g: float, mesh, mask: np.ndarray, finite: np.ndarray,

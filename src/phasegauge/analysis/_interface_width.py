@@ -135,20 +135,23 @@ class PreparedWidths:
             low, high, tail = (bulk_plateaus(self.c_point, self.level, mesh, extremes=extremes) if plateaus is None
                                else plateaus)
             self.plateaus = (low, high, tail)
-            if (low, high) == (0.0, 1.0):
-                self.clipped = np.clip(self.c_point, 0.0, 1.0)
-                self.width_level = self.level
-            else:  # the estimators see the profile between the measured bulk values
-                self.clipped = np.clip((self.c_point - low) / (high - low), 0.0, 1.0)
-                self.width_level = (self.level - low) / (high - low)
-            near = self._leave_out_noise(mesh, indicator)
+            self.clipped = self._rescaled(self.c_point)  # the estimators see the profile between the bulk values
+            self.width_level = self.level if (low, high) == (0.0, 1.0) else (self.level - low) / (high - low)
+            near = self._leave_out_noise(mesh, indicator, extremes)
             self.cell_mixed = _cell_mixed(mesh, indicator, low, high, tail, near)
             if near is not None and layout is None:  # the extremes of the values the integrals read
                 extremes = corner_extremes(mesh, self.clipped)
             self.integrals = self._integrals(band, layout, extremes, tail, rescaled=near is not None)
         self.contour, self.geometry, self.pieces = found if side is None else side.result()
 
-    def _leave_out_noise(self, mesh: Mesh, indicator):
+    def _rescaled(self, values: np.ndarray) -> np.ndarray:
+        """``values`` between the bulk values, clipped to [0, 1] (monotone: cells' corner extremes map too)."""
+        low, high, _ = self.plateaus
+        if (low, high) == (0.0, 1.0):
+            return np.clip(values, 0.0, 1.0)
+        return np.clip((values - low) / (high - low), 0.0, 1.0)
+
+    def _leave_out_noise(self, mesh: Mesh, indicator, extremes):
         """With bulk noise that reaches the band edge, the points beyond the contour's reach set to their
         side's bulk (:func:`._bulk_noise.beyond_reach_points`); the cells within reach, else None.
 
@@ -169,7 +172,9 @@ class PreparedWidths:
         spread = max(bulk_spread(u, level, least=1), 0.0 if cells is None else bulk_spread(cells, level, least=1))
         if not NOISE_EDGE_SPREADS * spread > _LOW:
             return None
-        beyond, near = beyond_reach_points(mesh, self.clipped, level)
+        if extremes is not None:  # those of c: the clipped values' are theirs mapped (monotone, the same rounding)
+            extremes = CornerExtremes(*(self._rescaled(part) for part in extremes))
+        beyond, near = beyond_reach_points(mesh, self.clipped, level, extremes=extremes)
         if not near.any():  # no crossing to reach from
             return None
         u = u[beyond]
