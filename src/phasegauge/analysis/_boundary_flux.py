@@ -140,31 +140,22 @@ def _open_cell_faces(mesh, u, owners, unit, centre, threshold) -> tuple[np.ndarr
     un_own = np.einsum("nd,nd->n", u[owners], unit)
     un_own = np.where(np.isfinite(un_own), un_own, 0.0)
     X, u, owners, slots = _whole_cell_stencil(mesh, u, owners)
+    slots = list(slots)  # read twice: the gradient, then the deepest neighbour (boundary cells only)
     un = np.einsum("nd,nd->n", u[owners], unit)
     un = np.where(np.isfinite(un), un, 0.0)
-    dim = X.shape[1]
-    A = np.zeros((len(owners), dim, dim))
-    b = np.zeros((len(owners), dim))
+    gradient = _stencil_gradient(X, owners, slots, un, lambda nb: np.einsum("nd,nd->n", u[nb], unit))
     own_depth = np.einsum("nd,nd->n", centre - X[owners], unit)  # distance of the centroid from the face
     deepest, deepest_depth, deepest_un = owners.copy(), own_depth.copy(), un.copy()
     for has, nb in slots:
-        d = X[nb] - X[owners]
         un_nb = np.einsum("nd,nd->n", u[nb], unit)
-        du = un_nb - un
-        w = (has & np.isfinite(du)).astype(np.float64)
-        du = np.where(w > 0, du, 0.0)
-        A += w[:, None, None] * d[:, :, None] * d[:, None, :]
-        b += (w * du)[:, None] * d
         depth = np.einsum("nd,nd->n", centre - X[nb], unit)
-        deeper = (w > 0) & (depth > deepest_depth * (1 + 1e-9))
+        deeper = has & np.isfinite(un_nb - un) & (depth > deepest_depth * (1 + 1e-9))
         deepest = np.where(deeper, nb, deepest)
         deepest_depth = np.where(deeper, depth, deepest_depth)
         deepest_un = np.where(deeper, un_nb, deepest_un)
     # two linear reconstructions of u.n at the face: from the least-squares gradient of the cell's
     # face neighbours (a cell with too few neighbours keeps its own value), and along the normal
     # from the neighbour deepest inside; a wall shows in either as a fall to zero or past it
-    scale = np.einsum("nii->n", A)[:, None, None] * 1e-12 + 1e-300
-    gradient = np.linalg.solve(A + scale * np.eye(dim), b[..., None])[..., 0]
     by_gradient = un + np.einsum("nd,nd->n", gradient, centre - X[owners])
     with np.errstate(invalid="ignore", divide="ignore"):
         slope = np.where(deepest != owners, (un - deepest_un) / (deepest_depth - own_depth), 0.0)
@@ -363,17 +354,25 @@ def _face_offset(mesh, c_values, owners, centre) -> np.ndarray:
     cell's face neighbours, as the wall test builds it for u.n; whole cells on a split mesh); 0 where c or
     the gradient is not finite."""
     X, c_values, owners, slots = _whole_cell_stencil(mesh, c_values, owners)
-    dim = X.shape[1]
     own = c_values[owners]
+    gradient = _stencil_gradient(X, owners, slots, own, lambda nb: c_values[nb])
+    offset = np.abs(np.einsum("nd,nd->n", gradient, centre - X[owners]))
+    return np.where(np.isfinite(offset) & np.isfinite(own), offset, 0.0)
+
+
+def _stencil_gradient(X, owners, slots, own, value_at) -> np.ndarray:
+    """Per owner cell, the least-squares gradient of a value over its face neighbours (``slots``: pairs of
+    whether the slot holds a neighbour and its number; ``value_at(nb)`` the value at those neighbours, ``own``
+    the owners'), the neighbours whose difference is not finite left out; a cell with too few neighbours gets a
+    gradient near 0 (the system regularised by 1e-12 of its trace)."""
+    dim = X.shape[1]
     A = np.zeros((len(owners), dim, dim))
     b = np.zeros((len(owners), dim))
     for has, nb in slots:
         d = X[nb] - X[owners]
-        dc = c_values[nb] - own
-        w = (has & np.isfinite(dc)).astype(np.float64)
+        dv = value_at(nb) - own
+        w = (has & np.isfinite(dv)).astype(np.float64)
         A += w[:, None, None] * d[:, :, None] * d[:, None, :]
-        b += (w * np.where(w > 0, dc, 0.0))[:, None] * d
+        b += (w * np.where(w > 0, dv, 0.0))[:, None] * d
     scale = np.einsum("nii->n", A)[:, None, None] * 1e-12 + 1e-300
-    gradient = np.linalg.solve(A + scale * np.eye(dim), b[..., None])[..., 0]
-    offset = np.abs(np.einsum("nd,nd->n", gradient, centre - X[owners]))
-    return np.where(np.isfinite(offset) & np.isfinite(own), offset, 0.0)
+    return np.linalg.solve(A + scale * np.eye(dim), b[..., None])[..., 0]

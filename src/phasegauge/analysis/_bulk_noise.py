@@ -15,7 +15,7 @@ from ..model.corners import corner_extremes
 from ..model.mesh import Mesh
 from ._width_integrals import _HIGH, _LOW
 
-__all__ = ["bulk_spread", "beyond_reach_points", "NOISE_EDGE_SPREADS", "TOO_NOISY", "SPREAD_SAMPLE"]
+__all__ = ["bulk_spread", "side_deviations", "spread_of", "beyond_reach_points", "NOISE_EDGE_SPREADS", "TOO_NOISY", "SPREAD_SAMPLE"]
 
 #: the band's own points are told from the bulk's noise where the band edge lies within this many bulk
 #: spreads of the bulk (a spread above 1.25 % of the jump; below it, fewer than 3e-5 of the bulk's points
@@ -60,11 +60,21 @@ def bulk_spread(u: np.ndarray, level: float, *, least: int = SPREAD_SAMPLE) -> f
         together (a few dozen points inside a small drop read their profile's tail and their
         own sampling scatter, not the noise); 0 where no side holds such a value.
     """
+    return spread_of(side_deviations(u, level), least)
+
+
+def side_deviations(u: np.ndarray, level: float) -> list:
+    """The deviations from their own median of each side's values near its bulk (:func:`bulk_spread`), a side of
+    more than 65 536 such values read at that many, evenly spaced; one array a side holding any."""
     u = np.asarray(u)  # NaN fails every comparison: no finite copy is needed
     sides = (u[(u > -_BULK_REACH) & (u < min(level, _BULK_REACH))],
              u[(u > max(level, 1.0 - _BULK_REACH)) & (u < 1.0 + _BULK_REACH)])
     sides = [side[::-(-side.size // _SIDE_VALUES)] for side in sides if side.size]  # evenly spaced
-    deviations = [side - np.median(side) for side in sides]
+    return [side - np.median(side) for side in sides]
+
+
+def spread_of(deviations: list, least: int = SPREAD_SAMPLE) -> float:
+    """:func:`bulk_spread` of the sides' ``deviations`` (:func:`side_deviations`)."""
     if not deviations:
         return 0.0
     sampled = [d for d in deviations if d.size >= least] or [np.concatenate(deviations)]

@@ -26,7 +26,8 @@ from ..model.mesh import Mesh
 from ..model._threads import Beside, check_threads
 from ..model.simplices import _split_plan
 from ._boundary_reach import boundary_share
-from ._bulk_noise import NOISE_EDGE_SPREADS, TOO_NOISY, beyond_reach_points, bulk_spread
+from ._bulk_noise import (NOISE_EDGE_SPREADS, TOO_NOISY, beyond_reach_points, bulk_spread, side_deviations,
+                          spread_of)
 from ._contour import _check_extremes, _check_level, find_interface
 from ._profile_fits import PROFILE_COLUMNS, WIDTH_PER_EPS, _profile_table
 from ._hex_integrals import _HexBand, coned_hexahedra
@@ -177,9 +178,9 @@ class PreparedWidths:
         beyond, near = beyond_reach_points(mesh, self.clipped, level, extremes=extremes)
         if not near.any():  # no crossing to reach from
             return None
-        u = u[beyond]
-        read = bulk_spread(u, level)  # the point values the widths read: the warning's
-        spread = max(bulk_spread(u, level, least=1),
+        deviations = side_deviations(u[beyond], level)
+        read = spread_of(deviations)  # the point values the widths read: the warning's
+        spread = max(spread_of(deviations, least=1),
                      0.0 if cells is None else bulk_spread(cells[~near], level, least=1))
         if read > TOO_NOISY:
             warnings.warn(PhasegaugeWarning(

@@ -61,9 +61,7 @@ def mark_decomposed_cells(raw, where: str = ""):
         found = _decomposed(raw, solid, name)
         if found is None:
             continue
-        parents, centres, listed = found
-        sizes = [len(raw.cells[i].data) for i in solid]
-        starts = np.concatenate([[0], np.cumsum(sizes)]).astype(np.int64)
+        parents, centres, listed, starts = found
         marks = [None] * len(raw.cells)
         for k, i in enumerate(solid):
             own = parents[starts[k]:starts[k + 1]]
@@ -87,9 +85,9 @@ def _dimension(cell_type: str) -> int:
 
 
 def _decomposed(raw, solid: list, name: str):
-    """``(parents, centres, listed)`` when cell array ``name`` numbers decomposed cells (module docstring), else
-    None: the whole cell of each solid cell (0 ..), the :class:`SplitCentres` of the shared points, and the
-    pieces in words."""
+    """``(parents, centres, listed, starts)`` when cell array ``name`` numbers decomposed cells (module docstring),
+    else None: the whole cell of each solid cell (0 ..), the :class:`SplitCentres` of the shared points, the
+    pieces in words, and where each solid block starts in ``parents``."""
     arrays = raw.cell_data[name]
     if len(arrays) != len(raw.cells):
         return None
@@ -102,7 +100,7 @@ def _decomposed(raw, solid: list, name: str):
     values, parents, counts = np.unique(ids, return_inverse=True, return_counts=True)
     parents = parents.reshape(-1).astype(np.int64)
     repeated = counts[parents] > 1
-    if not repeated.any():
+    if not repeated.any() or (counts[counts > 1] < 4).any():  # (a cell decomposed in fewer than 4 pieces: none)
         return None
     sizes = [len(raw.cells[i].data) for i in solid]
     starts = np.concatenate([[0], np.cumsum(sizes)]).astype(np.int64)
@@ -117,8 +115,6 @@ def _decomposed(raw, solid: list, name: str):
         if kind not in _PIECES:
             return None  # a repeated value's cell neither a pyramid nor a tetrahedron
         pieces.append((kind, np.asarray(raw.cells[i].data, dtype=np.int64)[pick], parents[pick + starts[k]]))
-    if (counts[counts > 1] < 4).any():
-        return None
     # four tetrahedra about a point are a tetrahedron refined about its centre, never a cell written decomposed
     # (a four-faced cell is written whole): a refined tetrahedral mesh whose array numbers the coarse cells
     with_pyramid = np.zeros(values.size, dtype=bool)
@@ -152,7 +148,7 @@ def _decomposed(raw, solid: list, name: str):
         return None
     made = {kind: sum(len(data) for k, data, _ in pieces if k == kind) for kind in ("pyramid", "tetra")}
     listed = " and ".join(f"{n} {_NAMES[kind]}" for kind, n in made.items() if n)
-    return parents, _centres(pieces, grouped, centre_of), listed
+    return parents, _centres(pieces, grouped, centre_of), listed, starts
 
 
 def _first_group_shares_one_point(raw, solid: list, starts: np.ndarray, parents: np.ndarray, group: int) -> bool:
