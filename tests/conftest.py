@@ -2,6 +2,7 @@
 
 import os
 
+import numpy as np
 import pytest
 
 os.environ.setdefault("MPLBACKEND", "Agg")
@@ -174,3 +175,62 @@ def hexahedra_as_polyhedra(mesh, chosen):
         stream += [len(cell), *cell]
         types.append(pv.CellType.POLYHEDRON)
     return pv.UnstructuredGrid(np.array(stream), np.array(types, np.uint8), mesh.points)
+
+
+# An analytic rising bubble with Hysing et al. (2009) case-1 figures as the reference checks cite them (0.2417 at
+# t = 0.92, circularity 0.9013 at t = 1.9, centroid 1.081 at t = 3): an ellipse of area pi R^2, R = 0.25, in the
+# 1 x 2 box, rising at V(t) = 0.2417 (t / 0.92)^p exp(p (1 - t / 0.92)); p chosen (scipy brentq, quad) so that
+# y_c(3) = 0.5 + int_0^3 V = 1.081; aspect k(t) = 1 + (k1 - 1) exp(-((t - 1.9) / 0.7)^2) with k1 chosen so that
+# the ellipse's circularity 2 pi R / (4 a E(1 - b^2 / a^2)) (scipy ellipe) is 0.9013 at t = 1.9.
+BUBBLE_RADIUS, BUBBLE_PEAK_VELOCITY, BUBBLE_PEAK_TIME = 0.25, 0.2417, 0.92
+
+
+def _bubble_velocity(t, p):
+    return BUBBLE_PEAK_VELOCITY * (t / BUBBLE_PEAK_TIME) ** p * np.exp(p * (1 - t / BUBBLE_PEAK_TIME)) if t > 0 else 0.0
+
+
+def ellipse_circularity(k):
+    """2 pi R / perimeter of the ellipse of area pi R^2 and aspect k (scipy's ellipe)."""
+    from scipy.special import ellipe
+
+    a, b = BUBBLE_RADIUS * np.sqrt(k), BUBBLE_RADIUS / np.sqrt(k)
+    return 2 * np.pi * BUBBLE_RADIUS / (4 * a * ellipe(1 - b * b / (a * a)))
+
+
+def _bubble_constants():
+    from scipy.integrate import quad
+    from scipy.optimize import brentq
+
+    p = brentq(lambda p: 0.5 + quad(lambda s: _bubble_velocity(s, p), 0, 3)[0] - 1.081, 0.05, 5)
+    k1 = brentq(lambda k: ellipse_circularity(k) - 0.9013, 1.0001, 5)
+    return p, k1
+
+
+BUBBLE_EXPONENT, BUBBLE_PEAK_ASPECT = _bubble_constants()
+
+
+def bubble_velocity(t):
+    """The analytic bubble's rise velocity at time t."""
+    return _bubble_velocity(t, BUBBLE_EXPONENT)
+
+
+def bubble_aspect(t):
+    """The analytic bubble's aspect k(t) (its axes R sqrt(k) across, R / sqrt(k) along the rise)."""
+    return 1 + (BUBBLE_PEAK_ASPECT - 1) * np.exp(-((t - 1.9) / 0.7) ** 2)
+
+
+def bubble_centre(t):
+    """The analytic bubble's centroid height at time t (scipy quad of the velocity)."""
+    from scipy.integrate import quad
+
+    return 0.5 + quad(bubble_velocity, 0, t)[0]
+
+
+def analytic_bubble(times):
+    """The analytic bubble's history at the given output times (one row per output)."""
+    import pandas as pd
+
+    times = np.asarray(times, dtype=float)
+    return pd.DataFrame({"time": times, "circularity": [ellipse_circularity(bubble_aspect(t)) for t in times],
+                         "centroid_y": [bubble_centre(t) for t in times],
+                         "velocity_y": [bubble_velocity(t) for t in times]})

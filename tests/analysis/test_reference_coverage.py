@@ -5,46 +5,15 @@ table's bands are the ones it gives."""
 import numpy as np
 import pandas as pd
 import pytest
-from scipy.integrate import quad
-from scipy.optimize import brentq
-from scipy.special import ellipe
+from conftest import BUBBLE_PEAK_VELOCITY, analytic_bubble
 
 from phasegauge.analysis.references import (NOT_APPLICABLE, check_against_table, check_reference_table,
                                             check_rising_bubble)
 from phasegauge.errors import OptionError
 from phasegauge.io import read_reference_table
 
-# An analytic rising bubble with Hysing et al. (2009) case-1 figures as the check cites them (0.2417 at
-# t = 0.92, circularity 0.9013 at t = 1.9, centroid 1.081 at t = 3): an ellipse of area pi R^2, R = 0.25,
-# rising at V(t) = 0.2417 (t / 0.92)^p exp(p (1 - t / 0.92)); p chosen (scipy brentq, quad) so that
-# y_c(3) = 0.5 + int_0^3 V = 1.081; aspect k(t) = 1 + (k1 - 1) exp(-((t - 1.9) / 0.7)^2) with k1 chosen so
-# that the ellipse's circularity 2 pi R / (4 a E(1 - b^2 / a^2)) (scipy ellipe) is 0.9013 at t = 1.9.
-R, V_MAX, T_PEAK = 0.25, 0.2417, 0.92
-
-
-def _velocity(t, p):
-    return V_MAX * (t / T_PEAK) ** p * np.exp(p * (1 - t / T_PEAK)) if t > 0 else 0.0
-
-
-P = brentq(lambda p: 0.5 + quad(lambda s: _velocity(s, p), 0, 3)[0] - 1.081, 0.05, 5)
-
-
-def _circularity_of_aspect(k):
-    a, b = R * np.sqrt(k), R / np.sqrt(k)
-    return 2 * np.pi * R / (4 * a * ellipe(1 - b * b / (a * a)))
-
-
-K1 = brentq(lambda k: _circularity_of_aspect(k) - 0.9013, 1.0001, 5)
-
-
-def analytic_bubble(times):
-    """The analytic bubble's history at the given output times (one row per output)."""
-    times = np.asarray(times, dtype=float)
-    return pd.DataFrame({
-        "time": times,
-        "circularity": [_circularity_of_aspect(1 + (K1 - 1) * np.exp(-((t - 1.9) / 0.7) ** 2)) for t in times],
-        "centroid_y": [0.5 + quad(lambda s: _velocity(s, P), 0, t)[0] for t in times],
-        "velocity_y": [_velocity(t, P) for t in times]})
+# the analytic rising bubble of conftest (Hysing et al. 2009 case-1 figures; an ellipse, scipy ellipe, brentq, quad)
+V_MAX = BUBBLE_PEAK_VELOCITY
 
 
 def _outputs(start, stop, dt=0.05):

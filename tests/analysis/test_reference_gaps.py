@@ -1,7 +1,7 @@
 """Reference checks of a run with lost outputs (steps skipped, or a column not finite there), of a sharp run
 whose circularity carries its cells' perimeter bias, and of a bubble rising along another axis than y.
 
-Outside reference: the analytic rising bubble of test_reference_coverage (an ellipse of area pi R^2 whose
+Outside reference: the analytic rising bubble of conftest (an ellipse of area pi R^2 whose
 circularity 2 pi R / (4 a E(1 - b^2/a^2)) comes from scipy's ellipe, minimum 0.9013 at t = 1.9, peak
 velocity 0.2417 at t = 0.92, centroid 1.081 at t = 3).
 """
@@ -9,7 +9,7 @@ velocity 0.2417 at t = 0.92, centroid 1.081 at t = 3).
 import numpy as np
 import pandas as pd
 import pytest
-from test_reference_coverage import analytic_bubble
+from conftest import analytic_bubble
 
 from phasegauge.analysis.references import (NOT_APPLICABLE, bubble_history, check_against_table,
                                             check_rising_bubble, circularity_bias)

@@ -18,16 +18,17 @@ H = 1.0 / N
 
 
 def _train(centres, radius, *, nx=80, ny=20):
-    """The mesh and, per step, the inside mask and scipy's count of the drops, for circles of ``radius``
-    centred at ``centres[k]`` (a list of (x, y) per step) on an ``nx`` x ``ny`` grid of cells H wide."""
+    """The mesh and, per step, the inside mask and scipy's count of the drops, for circles of ``radius`` (one for
+    all, or one per drop) centred at ``centres[k]`` (a list of (x, y) per step) on an ``nx`` x ``ny`` grid of
+    cells H wide."""
     mesh = grid_mesh((nx, ny), bounds=[(0, nx * H), (0, ny * H)])
     X = mesh.cell_centroids
     i, j = np.floor(X[:, 0] / H).astype(int), np.floor(X[:, 1] / H).astype(int)
     masks, counts = [], []
     for step in centres:
         inside = np.zeros(mesh.n_cells, dtype=bool)
-        for x, y in step:
-            inside |= np.hypot(X[:, 0] - x, X[:, 1] - y) < radius
+        for (x, y), r in zip(step, np.broadcast_to(radius, len(step))):
+            inside |= np.hypot(X[:, 0] - x, X[:, 1] - y) < r
         image = np.zeros((ny, nx), dtype=bool)
         image[j, i] = inside
         masks.append(inside)
@@ -64,23 +65,14 @@ def test_drops_following_closer_than_they_move_keep_their_tracks(radii):
     lead, tail = radii
     shift, gap = 3 * H, 1.5 * H
     centres = [[(0.6 + shift * k, 0.25), (0.6 + shift * k - (lead + gap + tail) * H, 0.25)] for k in range(6)]
-    mesh = grid_mesh((80, 20), bounds=[(0, 2), (0, 0.5)])
-    X = mesh.cell_centroids
-    steps = []
-    image_counts = []
-    for k, ((xa, ya), (xb, yb)) in enumerate(centres):
-        inside = (np.hypot(X[:, 0] - xa, X[:, 1] - ya) < lead * H) | (np.hypot(X[:, 0] - xb, X[:, 1] - yb) < tail * H)
-        steps.append((k, float(k), mesh, label_droplets(mesh, inside.astype(float))))
-        image = np.zeros((20, 80), dtype=bool)  # the written cells, not the tool's labels
-        image[np.floor(X[inside, 1] / H).astype(int), np.floor(X[inside, 0] / H).astype(int)] = True
-        image_counts.append(ndimage.label(image)[1])
+    mesh, masks, image_counts = _train(centres, (lead * H, tail * H))  # the written cells, not the tool's labels
+    steps = [(k, float(k), mesh, label_droplets(mesh, inside.astype(float))) for k, inside in enumerate(masks)]
     assert image_counts == [2] * 6  # scipy: two drops apart on every step
     droplets, events = track_droplets(steps)
     assert len(events) == 0
     assert droplets["track"].nunique() == 2
     for _, track in droplets.groupby("track"):  # each track keeps one drop's volume
         assert np.ptp(track["volume"]) == pytest.approx(0.0, abs=1e-12)
-
 
 
 def test_drops_leaving_through_an_outlet_inside_the_box_disappear():
