@@ -245,13 +245,18 @@ def test_pieces_of_other_times_are_named(tmp_path):
 
 def test_a_boundary_patch_among_the_pieces_is_left_out_and_named(tmp_path):
     path = write_pieces(tmp_path / "pieces.xdmf", SHAPE_3D, 2, patch=True)
-    with pytest.warns(BlocksLeftOutNote, match="pieces of the spatial collection left out: inlet"):
+    with pytest.warns(BlocksLeftOutNote, match=r"spatial collection pieces left out: inlet \(boundary patches "
+                                               r"written as cells of lower dimension than the volume's; the volume "
+                                               r"pieces are read\)"):
         mesh, fields, _ = _mesh(path)
     assert (mesh.n_cells, mesh.n_points) == (2000, 2541)  # the wall's c = 1 is not averaged into the volume's
     points, cells = _box(SHAPE_3D, range(SHAPE_3D[0]))
     order = np.lexsort(mesh.points.T[::-1])
     expected = _fields(points, cells, TIMES[0])[0]["c"][np.lexsort(points.T[::-1])]
     assert np.array_equal(fields.point_data["c"][order], expected)
+    result, _ = _measured(path)
+    assert "spatial collection pieces left out: inlet (boundary patches: the volume pieces are read)" in result.reading
+    assert result.steps["phase_volume"].iloc[0] == pytest.approx(_integrals(TIMES[0])[1], rel=1e-12)
 
 
 def test_a_plain_file_of_one_spatial_collection_is_one_step(tmp_path):

@@ -220,7 +220,7 @@ def read_pieces(reader, collection, path: str, where: str):
     finally:
         reader.collection = saved
     named = [(label, path) for label, _ in kept]
-    pieces = without_patches(pieces, named, where, what="pieces of the spatial collection")
+    pieces = without_patches(pieces, named, where, what="spatial collection pieces")
     named = [n for n, piece in zip(named, pieces) if piece is not None]
     pieces = [piece for piece in pieces if piece is not None]
     if len(pieces) == 1:
