@@ -21,7 +21,8 @@ import pytest
 import pyvista
 
 import phasegauge
-from phasegauge.errors import BlocksLeftOutNote, FieldNotFoundError, MeshWarning, UnsupportedMeshError
+from phasegauge.errors import (BlocksLeftOutNote, FieldNotFoundError, MeshWarning, UnreadableFileError,
+                               UnsupportedMeshError)
 
 pyvista.OFF_SCREEN = True
 
@@ -283,3 +284,16 @@ def test_pieces_nested_deeper_are_refused_by_name(tmp_path):
     with pytest.raises(UnsupportedMeshError, match="holds a Spatial collection: pieces nested deeper.*write each "
                                                    "step as one Uniform grid, or as one spatial collection"):
         phasegauge.measure(str(nested), "c", analyses=("conservation",))
+
+
+def test_a_piece_that_cannot_be_read_is_named(tmp_path):
+    path = write_pieces(tmp_path / "pieces.xdmf", SHAPE_3D, 2)
+    with open(path) as handle:
+        text = handle.read().replace("s1/p1/points", "s1/p1/nowhere")  # step 1's piece p1 names no dataset
+    with open(path, "w") as handle:
+        handle.write(text)
+    with phasegauge.open_series(path) as series:
+        assert series.read(0).mesh.n_cells == 2000
+        with pytest.raises(UnreadableFileError, match=r"pieces.xdmf, step 1: cannot read piece p1 of the step's "
+                                                      r"spatial collection .*nowhere"):
+            series.read(1)

@@ -181,7 +181,7 @@ def read_pieces(reader, collection, path: str, where: str):
     Raises
     ------
     UnreadableFileError
-        Every piece holds nothing.
+        Every piece holds nothing, or meshio cannot read a piece (named).
     UnsupportedMeshError
         A piece's form is not read (:func:`._xdmf_forms.form_problem`).
     """
@@ -209,12 +209,22 @@ def read_pieces(reader, collection, path: str, where: str):
             if timed.find("Time") is None:
                 ET.SubElement(timed, "Time", Value="0")
             reader.mesh_grid, reader.collection = grid, [timed]
-            with warnings.catch_warnings():
-                warnings.simplefilter("ignore")
-                points, cells = reader.read_points_cells()
-                if offset:
-                    reader.cells = cells = offset_cells(cells, offset, at)
-                _, point_data, cell_data = reader.read_data(0)
+            try:
+                with warnings.catch_warnings():
+                    warnings.simplefilter("ignore")
+                    points, cells = reader.read_points_cells()
+                    if offset:
+                        reader.cells = cells = offset_cells(cells, offset, at)
+                    _, point_data, cell_data = reader.read_data(0)
+            except PhasegaugeError:
+                raise
+            except Exception as exc:  # a missing or damaged HDF5 file is named by the caller; other failures here
+                if isinstance(exc, FileNotFoundError) or hdf5_problem(exc, path) is not None:
+                    raise
+                raise UnreadableFileError(f"cannot read piece {label} of the step's spatial collection "
+                                          f"({short_text(exc)})", where=where,
+                                          fix="check the piece's DataItems and that the HDF5 files they name are "
+                                              "complete") from None
             _check_field_lengths(len(points), cells, point_data, cell_data, at)
             pieces.append(meshio.Mesh(points, cells, point_data=point_data, cell_data=cell_data))
     finally:
