@@ -185,6 +185,15 @@ def test_pieces_read_as_the_same_mesh_written_whole(tmp_path, n_pieces, time_on)
         assert set(fields.point_data) == {"c"} and set(fields.cell_data) == {"x_cell"}
         c_cells = mesh.point_to_cell(fields.point_data["c"])
         assert float(c_cells @ mesh.cell_measures) == pytest.approx(integral, rel=1e-12)
+        # and pyvista on the joined mesh as read (its points after the seams' merge, its hexahedra, its c)
+        assert {block.cell_type for block in mesh.blocks} == {"hexahedron"}  # a block a piece
+        hexahedra = np.concatenate([block.connectivity for block in mesh.blocks])
+        joined = pyvista.UnstructuredGrid({pyvista.CellType.HEXAHEDRON: hexahedra}, mesh.points)
+        joined.point_data["c"] = fields.point_data["c"]
+        on_joined = joined.integrate_data()
+        assert float(on_joined["Volume"][0]) == pytest.approx(volume, rel=1e-12)
+        assert float(on_joined.point_data["c"][0]) == pytest.approx(integral, rel=1e-12)
+        assert joined.n_points == joined.clean().n_points  # no point twice: the seams joined
         assert result.steps["phase_volume"].iloc[step] == pytest.approx(integral, rel=1e-12)
         order = np.lexsort(mesh.points.T[::-1])
         whole_order = np.lexsort(whole_mesh.points.T[::-1])
@@ -297,3 +306,57 @@ def test_a_piece_that_cannot_be_read_is_named(tmp_path):
         with pytest.raises(UnreadableFileError, match=r"pieces.xdmf, step 1: cannot read piece p1 of the step's "
                                                       r"spatial collection .*nowhere"):
             series.read(1)
+
+
+def _tetrahedra(shape=(8, 4, 4)):
+    """A box of hexahedra each cut into 6 tetrahedra about its diagonal (Kuhn's cut: the tetrahedra of the
+    corner walks 0 -> 7 that step one axis at a time), points and cells."""
+    points, hexahedra = _box(shape, range(shape[0]))
+    # corner k of _box's hexahedron at offset (dx, dy, dz): 0 (0,0,0), 1 (1,0,0), 2 (1,1,0), 3 (0,1,0),
+    # 4 (0,0,1), 5 (1,0,1), 6 (1,1,1), 7 (0,1,1)
+    walks = [(0, 1, 2, 6), (0, 1, 5, 6), (0, 3, 2, 6), (0, 3, 7, 6), (0, 4, 5, 6), (0, 4, 7, 6)]
+    tetrahedra = np.concatenate([hexahedra[:, list(w)] for w in walks])
+    a, b, c, d = (points[tetrahedra[:, k]] for k in range(4))
+    inverted = np.einsum("ij,ij->i", np.cross(b - a, c - a), d - a) < 0  # half the walks turn the other way
+    tetrahedra[inverted] = tetrahedra[inverted][:, [0, 2, 1, 3]]
+    return points, tetrahedra
+
+
+def test_tetrahedra_cut_by_a_jagged_partition_read_as_written_whole(tmp_path):
+    # the pieces of a graph partition: cells by centroid, the cut not a plane, each piece its own points
+    points, tetrahedra = _tetrahedra()
+    centres = points[tetrahedra].mean(axis=1)
+    part = (centres[:, 0] + 0.3 * centres[:, 1] > 0.25).astype(int) + (centres[:, 2] > 0.1)
+    h5_name = "tets.h5"
+    grids = []
+    with h5py.File(tmp_path / h5_name, "w") as h5:
+        for p in range(3):
+            own = tetrahedra[part == p]
+            used, local = np.unique(own, return_inverse=True)
+            c = _fields(points[used], local.reshape(own.shape), 0.0)[0]["c"]
+            grids.append(f'<Grid Name="rank{p}" GridType="Uniform"><Topology TopologyType="Tetrahedron" '
+                         f'NumberOfElements="{len(own)}">{_item(h5, f"p{p}/cells", local.reshape(own.shape), h5_name)}'
+                         f'</Topology><Geometry GeometryType="XYZ">{_item(h5, f"p{p}/points", points[used], h5_name)}'
+                         f'</Geometry><Attribute Name="c" AttributeType="Scalar" Center="Node">'
+                         f'{_item(h5, f"p{p}/c", c, h5_name)}</Attribute></Grid>\n')
+    path = tmp_path / "tets.xdmf"
+    path.write_text('<?xml version="1.0"?>\n<Xdmf Version="3.0"><Domain>\n<Grid Name="step" GridType="Collection" '
+                    'CollectionType="Spatial"><Time Value="0.0"/>\n' + "".join(grids) + "</Grid></Domain></Xdmf>\n")
+    whole = tmp_path / "whole.xdmf"
+    meshio.write(whole, meshio.Mesh(points, [("tetra", tetrahedra)],
+                                    point_data={"c": _fields(points, tetrahedra, 0.0)[0]["c"]}))
+    mesh, fields, _ = _mesh(str(path))
+    whole_mesh, _, _ = _mesh(str(whole))
+    assert (mesh.n_cells, mesh.n_points) == (whole_mesh.n_cells, whole_mesh.n_points) == (6 * 128, 9 * 5 * 5)
+    result, said = _measured(str(path))
+    expected, _ = _measured(str(whole))
+    assert not [w for w in said if "duplicate points" in w or "inverted" in w]
+    for column in ("phase_volume", "domain_volume", "droplet_count", "c_min", "c_max"):  # our threshold: 1e-12
+        assert np.allclose(result.steps[column], expected.steps[column], rtol=1e-12, atol=1e-15), column
+    # pyvista on the joined mesh as read: the box's volume and the integral of the linear c on each tetrahedron
+    cells = np.concatenate([block.connectivity for block in mesh.blocks])
+    joined = pyvista.UnstructuredGrid({pyvista.CellType.TETRA: cells}, mesh.points)
+    joined.point_data["c"] = fields.point_data["c"]
+    integrated = joined.integrate_data()
+    assert float(integrated["Volume"][0]) == pytest.approx(8 * H * 4 * H * 4 * H, rel=1e-12)  # analytic: the box
+    assert result.steps["phase_volume"].iloc[0] == pytest.approx(float(integrated.point_data["c"][0]), rel=1e-12)
