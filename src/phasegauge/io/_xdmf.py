@@ -82,6 +82,8 @@ def collections_among(files: list) -> dict:
     ------
     SeriesError
         A file of two collections, or a collection's includes that are not read (:func:`included_files`).
+    UnsupportedMeshError
+        Collections nested in a way that is not read (:func:`._xdmf_forms.spatial_problem`).
     """
     found = {}
     for f in files:
