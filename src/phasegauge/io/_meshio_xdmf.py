@@ -13,6 +13,10 @@ XML around them is looked at here first. Three things are told to it:
   nothing else of it depends on the version (it takes the names of both, ``TopologyType``
   / ``Type`` and ``DataType`` / ``NumberType``), so the constructor's finding of the
   collection and the mesh grid is done here for a version 2 file.
+
+A step written as a spatial collection of Uniform grids (the pieces of a parallel run) is
+read piece by piece by the same reader (its mesh grid and step set to each piece in turn)
+and the pieces joined as the pieces of a ``.pvtu`` step are (:func:`read_pieces`).
 """
 
 from __future__ import annotations
@@ -23,13 +27,14 @@ import xml.etree.ElementTree as ET
 
 import numpy as np
 
-from ..errors import FieldShapeError, InputFileNotFound, UnreadableFileError, UnsupportedMeshError, short_text
+from ..errors import (FieldShapeError, InputFileNotFound, PhasegaugeError, UnreadableFileError, UnsupportedMeshError,
+                      short_text)
 from ..model.mesh import Mesh
 from ._meshio_adapter import (_WRITE_AGAIN, StepFields, ensure_vtk_extras, hdf5_problem, mesh_and_fields,
                               repeat_mesh_notes, step_fields)
-from ._xdmf_forms import base_offset, form_problem, spatial_problem, version_problem
+from ._xdmf_forms import base_offset, form_problem, is_collection, spatial_problem, version_problem
 
-__all__ = ["XdmfTimeSeries", "offset_cells", "read_timed_grid"]
+__all__ = ["XdmfTimeSeries", "offset_cells", "read_timed_grid", "read_pieces", "read_spatial_file"]
 
 _CHECK_FILES = "check the XDMF file and the HDF5 files it names"
 
@@ -47,7 +52,8 @@ def _time_series_reader(path: str):
     if problem is not None:
         raise problem
     try:
-        if root.get("Version").strip().split(".")[0] == "3":
+        pieces = any(is_collection(grid, "spatial") for grid in root.iter("Grid"))
+        if root.get("Version").strip().split(".")[0] == "3" and not pieces:
             reader = meshio.xdmf.TimeSeriesReader(path)
         else:
             reader = _version2_reader(path, root)
@@ -63,9 +69,10 @@ def _time_series_reader(path: str):
 
 
 def _version2_reader(path: str, root):
-    """meshio's reader made without its constructor (which refuses version 2), set as the constructor sets it:
-    the one Domain, its temporal collection, and the mesh grid (a Uniform grid of the Domain, else the first
-    Uniform grid of the collection)."""
+    """meshio's reader made without its constructor (which refuses version 2, and a collection whose steps are
+    all spatial collections), set as the constructor sets it: the one Domain, its temporal collection, and the
+    mesh grid (a Uniform grid of the Domain, else the first Uniform grid of the collection, else the first piece
+    of a step written as a spatial collection: each such step sets its pieces itself)."""
     from meshio.xdmf.time_series import TimeSeriesReader
 
     domains = [node for node in root if node.tag == "Domain"]
@@ -77,6 +84,7 @@ def _version2_reader(path: str, root):
         raise ValueError("no temporal collection in the Domain")
     uniform = [g for g in grids if g.get("GridType") == "Uniform"]
     uniform += [g for g in collections[-1] if g.tag == "Grid" and g.get("GridType", "Uniform") == "Uniform"]
+    uniform += [piece for g in collections[-1] if is_collection(g, "spatial") for piece in g if piece.tag == "Grid"]
     if not uniform:
         raise ValueError("no Uniform grid holds the mesh")
     reader = TimeSeriesReader.__new__(TimeSeriesReader)
@@ -95,14 +103,8 @@ def read_timed_grid(path: str, grid):
     reader as a collection of that grid alone: meshio's plain-file reader refuses a grid's ``Time``.
     Returns a meshio mesh (the time is read by :func:`._xdmf.peek_xdmf_time`)."""
     import meshio
-    from meshio.xdmf.time_series import TimeSeriesReader
 
-    reader = TimeSeriesReader.__new__(TimeSeriesReader)  # set as its constructor sets it, for this grid
-    reader.filename = pathlib.Path(path)
-    reader.domain = ET.parse(path).getroot().find("Domain")
-    for item in reader.domain.iter("DataItem"):  # the XDMF specification's default Format, which meshio needs
-        if item.get("Format") is None:
-            item.set("Format", "XML")
+    reader = _bare_reader(path)
     grid = next(g for g in reader.domain.iter("Grid") if g.get("Name", "") == grid.get("Name", "")
                 and g.find("Time") is not None)
     reader.collection, reader.num_steps, reader.cells, reader.hdf5_files = [grid], 1, None, {}
@@ -116,6 +118,125 @@ def read_timed_grid(path: str, grid):
         for handle in reader.hdf5_files.values():
             handle.close()
     return meshio.Mesh(points, cells, point_data=point_data, cell_data=cell_data)
+
+
+def _bare_reader(path: str):
+    """meshio's ``TimeSeriesReader`` of a plain XDMF file, made without its constructor (which wants a temporal
+    collection): its Domain, no collection, no mesh grid yet."""
+    from meshio.xdmf.time_series import TimeSeriesReader
+
+    reader = TimeSeriesReader.__new__(TimeSeriesReader)  # set as its constructor sets it
+    reader.filename = pathlib.Path(path)
+    reader.domain = ET.parse(path).getroot().find("Domain")
+    for item in reader.domain.iter("DataItem"):  # the XDMF specification's default Format, which meshio needs
+        if item.get("Format") is None:
+            item.set("Format", "XML")
+    reader.collection, reader.num_steps, reader.cells, reader.hdf5_files, reader.mesh_grid = [], 0, None, {}, None
+    return reader
+
+
+def read_spatial_file(path: str, where: str):
+    """A plain XDMF file whose grid is a spatial collection of pieces, read as one mesh (:func:`read_pieces`)."""
+    reader = _bare_reader(path)
+    collection = next(g for g in reader.domain if is_collection(g, "spatial"))
+    try:
+        return read_pieces(reader, collection, path, where)
+    finally:
+        for handle in reader.hdf5_files.values():
+            handle.close()
+
+
+def _piece_labels(pieces: list) -> list:
+    """A name for each piece in messages: its ``Name`` where the pieces' names differ, else its number and
+    ``Name`` (``1 (p)``: writers often name every piece alike)."""
+    names = [(g.get("Name") or "").strip() for g in pieces]
+    if all(names) and len(set(names)) == len(names):
+        return names
+    return [f"{k}" + (f" ({n})" if n else "") for k, n in enumerate(names)]
+
+
+def _holds_nothing(piece) -> bool:
+    """True for a piece of 0 points or 0 cells as its DataItems' ``Dimensions`` say (a process that owns no
+    cells), or one without a Topology or Geometry."""
+    parts = [node for node in piece if node.tag in ("Topology", "Geometry")]
+    if len(parts) < 2:
+        return True
+    for node in parts:
+        dims = [d for item in node if item.tag == "DataItem" for d in (item.get("Dimensions") or "").split()]
+        if dims and dims[0] == "0":
+            return True
+    return False
+
+
+def read_pieces(reader, collection, path: str, where: str):
+    """One step written as a spatial collection of Uniform grids, read as one meshio mesh.
+
+    Each piece's points, cells and fields are read by meshio's ``TimeSeriesReader`` (its mesh grid and
+    its step set to the piece), its ``BaseOffset`` applied; pieces holding nothing (a process that owns
+    no cells) are left out, and so are pieces whose cells are all of a lower dimension than another's
+    (boundary patches, named in a note). The pieces are joined as the pieces of a ``.pvtu`` step are
+    (:func:`._multiblock.join_pieces`: the points of a seam made equal, a field kept when every piece holds
+    it, else named with the pieces lacking it).
+
+    Raises
+    ------
+    UnreadableFileError
+        Every piece holds nothing, or meshio cannot read a piece (named).
+    UnsupportedMeshError
+        A piece's form is not read (:func:`._xdmf_forms.form_problem`).
+    """
+    import copy
+
+    import meshio
+
+    from ._multiblock import join_pieces, without_patches
+
+    grids = [g for g in collection if g.tag == "Grid"]
+    labels = _piece_labels(grids)
+    kept = [(label, g) for label, g in zip(labels, grids) if not _holds_nothing(g)]
+    if not kept:
+        raise UnreadableFileError(f"every piece of the spatial collection holds no cells ({len(grids)} pieces)",
+                                  where=where, fix="give a step whose pieces hold the mesh's cells")
+    pieces, saved = [], reader.collection
+    try:
+        for label, grid in kept:
+            at = f"{where}, piece {label}"
+            problem = form_problem(grid, at)
+            if problem is not None:
+                raise problem
+            offset = base_offset(grid, at)
+            timed = copy.copy(grid)  # meshio needs a time in the grid it reads; the piece's own XML unchanged
+            if timed.find("Time") is None:
+                ET.SubElement(timed, "Time", Value="0")
+            reader.mesh_grid, reader.collection = grid, [timed]
+            try:
+                with warnings.catch_warnings():
+                    warnings.simplefilter("ignore")
+                    points, cells = reader.read_points_cells()
+                    if offset:
+                        reader.cells = cells = offset_cells(cells, offset, at)
+                    _, point_data, cell_data = reader.read_data(0)
+            except PhasegaugeError:
+                raise
+            except Exception as exc:  # a missing or damaged HDF5 file is named by the caller; other failures here
+                if isinstance(exc, FileNotFoundError) or hdf5_problem(exc, path) is not None:
+                    raise
+                raise UnreadableFileError(f"cannot read piece {label} of the step's spatial collection "
+                                          f"({short_text(exc)})", where=where,
+                                          fix="check the piece's DataItems and that the HDF5 files they name are "
+                                              "complete") from None
+            _check_field_lengths(len(points), cells, point_data, cell_data, at)
+            pieces.append(meshio.Mesh(points, cells, point_data=point_data, cell_data=cell_data))
+    finally:
+        reader.collection = saved
+    named = [(label, path) for label, _ in kept]
+    pieces = without_patches(pieces, named, where, what="spatial collection pieces")
+    named = [n for n, piece in zip(named, pieces) if piece is not None]
+    pieces = [piece for piece in pieces if piece is not None]
+    if len(pieces) == 1:
+        return pieces[0]
+    return join_pieces(pieces, named, path, part="piece", whole="the step's spatial collection",
+                       holding_fix="write the field in every piece of the step")
 
 
 class XdmfTimeSeries:
@@ -145,6 +266,9 @@ class XdmfTimeSeries:
 
         reader = self._reader
         node = reader.collection[grid]
+        if is_collection(node, "spatial"):
+            self._points_key = None  # the reader's points and cells are the last piece's
+            return grid, self._guarded(lambda: read_pieces(reader, node, self.path, where), where)
         own_mesh = any(child.tag in ("Topology", "Geometry") for child in node)
         key = grid if own_mesh else "shared"
         mesh_grid = node if own_mesh else self._shared_grid
@@ -152,7 +276,8 @@ class XdmfTimeSeries:
         if problem is not None:
             raise problem
         offset = base_offset(mesh_grid, where)
-        try:
+
+        def fields():
             with warnings.catch_warnings():
                 warnings.simplefilter("ignore")
                 if self._points_key != key:
@@ -163,8 +288,17 @@ class XdmfTimeSeries:
                     self._points_key = key
                 if node.find("Time") is None:  # meshio needs a time in every grid
                     ET.SubElement(node, "Time", Value=str(float(grid)))
-                _, point_data, cell_data = reader.read_data(grid)
-        except UnsupportedMeshError:
+                return reader.read_data(grid)[1:]
+
+        point_data, cell_data = self._guarded(fields, where)
+        _check_field_lengths(len(reader._points), reader.cells, point_data, cell_data, where)
+        return key, meshio.Mesh(reader._points, reader.cells, point_data=point_data, cell_data=cell_data)
+
+    def _guarded(self, read, where: str):
+        """``read()``, meshio's failures named as the project's errors (a missing or damaged HDF5 file)."""
+        try:
+            return read()
+        except PhasegaugeError:
             raise
         except Exception as exc:
             problem = hdf5_problem(exc, self.path)
@@ -176,8 +310,6 @@ class XdmfTimeSeries:
             raise UnreadableFileError(f"cannot read the step's data ({short_text(exc)})", where=where,
                                       fix="check the DataItems of the XDMF file and that the HDF5 files they name are "
                                           "complete (not truncated)") from None
-        _check_field_lengths(len(reader._points), reader.cells, point_data, cell_data, where)
-        return key, meshio.Mesh(reader._points, reader.cells, point_data=point_data, cell_data=cell_data)
 
     def step(self, grid: int, where: str, pool=None) -> tuple[Mesh, StepFields]:
         """Mesh and fields of grid ``grid`` (the mesh built once while the grids share it)."""

@@ -147,8 +147,6 @@ def read_multiblock(path: str):
     (written by a process that owns no cells) are left out, from the fields' check too.
     """
     from ._formats import read_mesh_file
-    from ..model.polyhedra import joined_centres
-    from ._meshio_adapter import file_rows, new_mesh
     from ._vtk import xml_holds_no_cells
 
     path = os.fspath(path)
@@ -161,11 +159,28 @@ def read_multiblock(path: str):
         raise UnreadableFileError("every piece it names holds no cells (0 points and 0 cells)", where=path,
                                   fix="give a step whose pieces hold the mesh's cells")
     pieces = [read_mesh_file(file) for _, file in volume]
-    pieces = _without_patches(pieces, volume, path)
+    pieces = without_patches(pieces, volume, path)
     named = [block for block, piece in zip(volume, pieces) if piece is not None]
     pieces = [piece for piece in pieces if piece is not None]
     if len(pieces) == 1:
         return _with_own_time(pieces[0], path, named[0][0], own)
+    return _with_own_time(join_pieces(pieces, named, path, own=own), path, named[0][0], own)
+
+
+def join_pieces(pieces: list, named: list, path: str, *, own: dict | None = None, part: str = "block",
+                whole: str = "the multiblock file", holding_fix: str | None = None):
+    """The volume pieces of one step (meshio meshes, two or more) joined as one meshio-style mesh.
+
+    Points are numbered on piece by piece and the points of a seam made equal (:func:`seams_made_equal`);
+    cells VTK marks as another piece's are left out (:func:`_owned_cells`); a field is kept when every piece
+    holds it with the same components, else named in ``fields_left_out`` (:func:`fields_left_out`, its
+    words ``part`` and ``whole``, and ``holding_fix`` in place of the fix naming a multiblock's blocks).
+    The field data is the first piece's. ``named``: ``(name, file)`` of each piece, for the messages;
+    ``own``: the multiblock file's own time (:func:`own_time`), for the fix of a field left out.
+    """
+    from ..model.polyhedra import joined_centres
+    from ._meshio_adapter import file_rows, new_mesh
+
     # each block's file numbers counted on by all the cells of the block files before it, ghost cells
     # included (taken before they go): a cell's number less its block's offset is its row in its file
     sizes = [max((int(r.max()) + 1 for r in file_rows(piece) if len(r)), default=0) for piece in pieces]
@@ -186,9 +201,8 @@ def read_multiblock(path: str):
                  for name in pieces[0].cell_data if _shared(pieces, "cell_data", name)}
     joined = new_mesh(points, cells, point_data=point_data, cell_data=cell_data,
                       field_data=dict(pieces[0].field_data or {}))
-    joined.fields_left_out, joined.cell_copies_left_out = fields_left_out(pieces, named, path, point_data, cell_data,
-                                                                          own=own)
-    joined = _with_own_time(joined, path, named[0][0], own)
+    joined.fields_left_out, joined.cell_copies_left_out = fields_left_out(
+        pieces, named, path, point_data, cell_data, own=own, part=part, whole=whole, holding_fix=holding_fix)
     joined.block_sizes = block_sizes  # points merged across blocks are the join, not duplicates
     joined.cell_rows = rows
     joined.single_precision_points = single
@@ -207,11 +221,12 @@ def _top_dimension(piece) -> int:
     return max((CELL_DIMENSION.get(LINEAR_CORNERS.get(b.type, (b.type,))[0], 3) for b in piece.cells), default=3)
 
 
-def _without_patches(pieces: list, named: tuple, path: str) -> list:
+def without_patches(pieces: list, named: tuple, path: str, *, what: str = "multiblock blocks") -> list:
     """The blocks, None for those whose cells are all of a lower dimension than another block's: boundary
     patches written as unstructured grids of faces (as ``.vtp`` patches, left out). Joined, their points
     would merge with the wall points and average the patch's values (a boundary condition's) into the
-    volume's. Named in one :class:`~phasegauge.errors.BlocksLeftOutNote` (a run's info line, not a finding)."""
+    volume's. Named in one :class:`~phasegauge.errors.BlocksLeftOutNote` (a run's info line, not a finding),
+    ``what`` saying what they are."""
     dims = [_top_dimension(p) for p in pieces]
     top = max(dims)
     if all(d == top for d in dims):
@@ -221,8 +236,9 @@ def _without_patches(pieces: list, named: tuple, path: str) -> list:
     from ..errors import BlocksLeftOutNote
 
     names = [name or os.path.splitext(os.path.basename(file))[0] for (name, file), d in zip(named, dims) if d < top]
-    warnings.warn(BlocksLeftOutNote(f"multiblock blocks left out: {', '.join(names)} (boundary patches written as "
-                                    "cells of lower dimension than the volume's; the volume blocks are read)",
+    warnings.warn(BlocksLeftOutNote(f"{what} left out: {', '.join(names)} (boundary patches written as "
+                                    f"cells of lower dimension than the volume's; the volume {what.split()[-1]} "
+                                    "are read)",
                                     where=path, names=names), stacklevel=3)
     return [p if d == top else None for p, d in zip(pieces, dims)]
 
@@ -310,13 +326,16 @@ def seams_made_equal(points: list, *, single_precision: bool = False) -> np.ndar
 
 
 def fields_left_out(pieces: list, named: list, path: str, point_data: dict, cell_data: dict, *,
-                    own: dict | None = None) -> tuple:
+                    own: dict | None = None, part: str = "block", whole: str = "the multiblock file",
+                    holding_fix: str | None = None) -> tuple:
     """The fields some blocks hold and the joined mesh does not (not held by every block, or with other
     components), each with why and the fix: ``{name: (why, fix)}``, which the message of a field not
     found gives; and the fields whose copy on cells is left out while their copy on points is kept,
     ``{name: why}``: :func:`phasegauge.model.fields.named_field` warns when it reads that point copy in
     place of the cell copy it prefers (a point copy left out is not said: the cell copy is read anyway).
-    ``own``: the multiblock file's own time (:func:`own_time`) where the caller has it already."""
+    ``own``: the multiblock file's own time (:func:`own_time`) where the caller has it already; ``part`` and
+    ``whole``: the words for a piece and what names the pieces; ``holding_fix``: the fix of a field not every
+    piece holds, in place of measuring a multiblock's blocks alone."""
     names = [(name or os.path.splitext(os.path.basename(file))[0]) for name, file in named]
     if len(set(names)) < len(names):  # datasets named alike in several regions: named by their files
         names = [os.path.relpath(file, os.path.dirname(os.path.abspath(path))) for _, file in named]
@@ -338,13 +357,14 @@ def fields_left_out(pieces: list, named: list, path: str, point_data: dict, cell
         having = [k for k, h in enumerate(on[where]) if field in h]
         shown = shown or "; ".join(held(k) for k in range(len(pieces)))
         if len(having) == len(pieces):
-            why = f"the blocks hold it on {where} with different components ({shown})"
+            why = f"the {part}s hold it on {where} with different components ({shown})"
             fix = "write it with the same components in every block"
         else:
             lacking = [names[k] for k in range(len(pieces)) if k not in having]
-            why = (f"block{'s' if len(lacking) > 1 else ''} {', '.join(lacking)} of the multiblock file "
+            why = (f"{part}{'s' if len(lacking) > 1 else ''} {', '.join(lacking)} of {whole} "
                    f"hold{'' if len(lacking) > 1 else 's'} no '{field}' on {where} ({shown})")
-            fix = _holding_blocks_fix(path, [named[k][1] for k in having], [names[k] for k in having], own)
+            fix = holding_fix or _holding_blocks_fix(path, [named[k][1] for k in having],
+                                                     [names[k] for k in having], own)
         kept = "points" if where == "cells" else "cells"
         if field in joined[kept]:
             if where == "cells":

@@ -9,15 +9,16 @@ from __future__ import annotations
 
 import os
 import re
+import warnings
 import xml.etree.ElementTree as ET
 
 import numpy as np
 
-from ..errors import InputFileNotFound, SeriesError, UnreadableFileError, short_text
+from ..errors import InputFileNotFound, MeshWarning, PhasegaugeError, SeriesError, UnreadableFileError, short_text
 from ._formats import register_format, stored_time
 from ._meshio_adapter import read_with_meshio
-from ._meshio_xdmf import offset_cells, read_timed_grid
-from ._xdmf_forms import base_offset, form_problem, spatial_problem
+from ._meshio_xdmf import offset_cells, read_spatial_file, read_timed_grid
+from ._xdmf_forms import base_offset, form_problem, is_collection, spatial_problem
 
 __all__ = ["FORMATS", "temporal_grids", "collection_times", "collections_among", "lone_collection", "grid_time",
            "xdmf_data_files", "data_file_names", "included_files", "peek_xdmf_time"]
@@ -45,7 +46,16 @@ def temporal_grids(path: str):
 
 
 def _grids_of(root, path: str):
-    """The grids of the temporal collection under ``root`` (the XML of file ``path``), or None."""
+    """The grids of the temporal collection under ``root`` (the XML of file ``path``), or None.
+
+    Raises
+    ------
+    UnsupportedMeshError
+        Collections nested in a way that is not read (:func:`._xdmf_forms.spatial_problem`).
+    """
+    problem = spatial_problem(root, path)
+    if problem is not None:
+        raise problem
     collections = [grid for grid in root.iter("Grid")
                    if grid.get("GridType") == "Collection" and grid.get("CollectionType") == "Temporal"]
     if len(collections) > 1:  # one a field, as some writers do: which grid a step's field is in is not clear
@@ -72,6 +82,8 @@ def collections_among(files: list) -> dict:
     ------
     SeriesError
         A file of two collections, or a collection's includes that are not read (:func:`included_files`).
+    UnsupportedMeshError
+        Collections nested in a way that is not read (:func:`._xdmf_forms.spatial_problem`).
     """
     found = {}
     for f in files:
@@ -163,6 +175,10 @@ def peek_xdmf_time(path: str):
         return None  # reading the step says what is wrong with it
     if _temporal_collection(root) is not None:
         return None
+    domain = root.find("Domain")
+    top = None if domain is None else domain.find("Grid")
+    if top is not None and is_collection(top, "spatial"):
+        return grid_time(top, where=path)
     for grid in root.iter("Grid"):
         if grid.find("Time") is not None:
             return grid_time(grid, where=path)
@@ -172,11 +188,33 @@ def peek_xdmf_time(path: str):
 def grid_time(grid, where: str = "") -> float | None:
     """The ``Time`` value of one grid of a collection, or None.
 
+    A step written as a spatial collection of pieces takes the collection's ``Time``, else its first
+    piece's; pieces that store other times than the one taken are named in a :class:`MeshWarning`.
+
     Raises
     ------
     SeriesError
         A ``Time`` value that is text, empty, NaN or infinite.
     """
+    time = _own_time(grid, where)
+    if not is_collection(grid, "spatial"):
+        return time
+    pieces = [(piece.get("Name") or str(k), _own_time(piece, where))
+              for k, piece in enumerate(g for g in grid if g.tag == "Grid")]
+    timed = [(name, t) for name, t in pieces if t is not None]
+    taken, whose = (time, "the spatial collection's") if time is not None else \
+        ((timed[0][1], f"its first piece's ({timed[0][0]})") if timed else (None, ""))
+    other = [(name, t) for name, t in timed if abs(t - taken) > max(t.resolution, taken.resolution)]
+    if other:
+        named = ", ".join(f"{name} {float(t)!r}" for name, t in other[:3]) + (" ..." if len(other) > 3 else "")
+        warnings.warn(MeshWarning(f"the pieces of the step's spatial collection store other times ({named}) than "
+                                  f"{whose}, {float(taken)!r}, which is used; write one time, in the spatial "
+                                  "collection's <Time Value=...>", where=where), stacklevel=2)
+    return taken
+
+
+def _own_time(grid, where: str):
+    """The ``<Time Value=...>`` child of one grid element, or None."""
     node = grid.find("Time")
     if node is not None and node.get("Value") is not None:
         time = stored_time(node.get("Value"), where=where, source="in the XDMF <Time Value=...>",
@@ -355,6 +393,17 @@ def read_xdmf(path: str):
     problem = None if root is None else spatial_problem(root, path)
     if problem is not None:
         raise problem
+    domain = None if root is None else root.find("Domain")
+    top = None if domain is None else domain.find("Grid")
+    if top is not None and is_collection(top, "spatial"):  # one step written as pieces
+        try:
+            return read_spatial_file(path, path)
+        except PhasegaugeError:
+            raise
+        except Exception as exc:  # meshio's own failure, named as for any file it cannot read
+            raise UnreadableFileError(f"cannot be read as an XDMF file ({short_text(exc)})", where=path,
+                                      fix="check the DataItems of the XDMF file and that the HDF5 files they "
+                                          "name are complete") from None
     grid = None if root is None else next((g for g in root.iter("Grid") if g.find("Topology") is not None), None)
     offset = 0
     if grid is not None:

@@ -5,19 +5,21 @@ cells from one ``Topology`` DataItem of corner numbers; the XDMF specification h
 more forms (coordinates per axis, structured grids given by origin and spacing) and
 a ``BaseOffset`` subtracted from the corner numbers (Fortran writers number from 1).
 This module reads only XML elements: it names a form that is not read and says what
-to write instead, and gives a topology's ``BaseOffset``.
+to write instead, and gives a topology's ``BaseOffset``. A step written as a spatial
+collection of Uniform grids (one a process) is read piece by piece and joined
+(:func:`._meshio_xdmf.read_pieces`); collections nested deeper are named here.
 
 References
 ----------
 XDMF Model and Format, https://www.xdmf.org/index.php/XDMF_Model_and_Format
-(Topology, Geometry, Time).
+(Grid, Topology, Geometry, Time).
 """
 
 from __future__ import annotations
 
 from ..errors import UnreadableFileError, UnsupportedMeshError
 
-__all__ = ["form_problem", "base_offset", "version_problem", "spatial_problem"]
+__all__ = ["form_problem", "base_offset", "version_problem", "spatial_problem", "is_collection"]
 
 #: geometry forms meshio does not read, and what each holds
 _GEOMETRY_NOT_READ = (
@@ -114,18 +116,40 @@ def version_problem(root, path: str):
                                                "give a 'time,path' listing of per-step files")
 
 
+def is_collection(grid, kind: str) -> bool:
+    """True for a ``Grid`` element that is a collection of ``kind`` (``'temporal'`` or ``'spatial'``, any case;
+    a collection that names no ``CollectionType`` is spatial, the XDMF specification's default)."""
+    if grid.tag != "Grid" or (grid.get("GridType") or "").strip().lower() != "collection":
+        return False
+    return ((grid.get("CollectionType") or "").strip().lower() or "spatial") == kind
+
+
 def spatial_problem(root, where: str):
-    """The error for grids written as spatial collections of pieces (``GridType="Collection"`` with
-    ``CollectionType="Spatial"``, or a collection inside the temporal collection: one step's pieces), which are
-    not read, or None. meshio's readers take a step's mesh from one Uniform grid."""
+    """The error for collections nested in a way that is not read, or None.
+
+    A step written as a spatial collection of Uniform grids (the pieces of a parallel run, one a
+    process) is read, as a grid of a temporal collection or as a plain file's grid. Not read: a
+    spatial collection holding collections (pieces nested deeper, or a time series a piece) or
+    holding no grid, and a temporal collection holding temporal collections.
+    """
     for grid in root.iter("Grid"):
-        if (grid.get("GridType") or "").strip().lower() != "collection":
-            continue
-        kind = (grid.get("CollectionType") or "").strip().lower()
-        inner = kind == "temporal" and any(child.tag == "Grid" and (child.get("GridType") or "").strip().lower()
-                                           == "collection" for child in grid)
-        if kind == "spatial" or inner:
-            return UnsupportedMeshError("steps written as spatial collections of pieces are not read", where=where,
-                                        fix="write one Uniform grid per step (the pieces joined), or each step's "
-                                            "pieces as VTK files named by a .pvtu or .vtm")
+        if is_collection(grid, "spatial"):
+            inner = [child for child in grid if child.tag == "Grid"]
+            nested = [child for child in inner if (child.get("GridType") or "").strip().lower() == "collection"]
+            if nested:
+                kind = (nested[0].get("CollectionType") or "Spatial").strip()
+                return UnsupportedMeshError(f"a spatial collection holds a {kind} collection: pieces nested deeper "
+                                            "than one spatial collection a step are not read", where=where,
+                                            fix=_WRITE_PIECES)
+            if not inner:
+                return UnsupportedMeshError(f"the spatial collection '{grid.get('Name', '')}' holds no grid",
+                                            where=where, fix=_WRITE_PIECES)
+        elif is_collection(grid, "temporal") and any(is_collection(child, "temporal") for child in grid):
+            return UnsupportedMeshError("a temporal collection holds a temporal collection, which is not read",
+                                        where=where, fix="write one temporal collection whose grids are the steps "
+                                                         "(each a Uniform grid, or a spatial collection of them)")
     return None
+
+
+_WRITE_PIECES = ("write each step as one Uniform grid, or as one spatial collection of Uniform grids (a piece "
+                 "each, with its own Topology and Geometry)")

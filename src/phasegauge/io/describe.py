@@ -288,8 +288,13 @@ def format_description(desc: dict) -> str:
     for name, why in desc.get("cell_copies_left_out", {}).items():
         lines.append(f"  {name:<16} cell copy not read: {why} (measure reads the point copy)")
     if desc.get("blocks_left_out"):
-        lines.append("left out    blocks " + ", ".join(desc["blocks_left_out"])
-                     + " of the multiblock files (boundary patches and other polygon data; the volume blocks are read)")
+        if desc.get("kind") == "collection":  # an XDMF collection's steps written as spatial collections
+            lines.append("left out    spatial collection pieces " + ", ".join(desc["blocks_left_out"])
+                         + " (boundary patches; the volume pieces are read)")
+        else:
+            lines.append("left out    blocks " + ", ".join(desc["blocks_left_out"])
+                         + " of the multiblock files (boundary patches and other polygon data; the volume blocks are "
+                           "read)")
     return "\n".join(lines)
 
 

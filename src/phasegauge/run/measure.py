@@ -429,8 +429,9 @@ def _reading(record: dict, results) -> list:
         lines.append(f"read {sources[0]}")
     left_out = blocks_left_out(record, results)  # polygon data, and blocks of faces in a volume format, alike
     if left_out:
-        lines.append(f"multiblock blocks left out: {', '.join(left_out)} "
-                     "(boundary patches: the volume blocks are read)")
+        what = "spatial collection pieces" if record.get("kind") == "collection" else "multiblock blocks"
+        lines.append(f"{what} left out: {', '.join(left_out)} (boundary patches: the volume {what.split()[-1]} are "
+                     "read)")
     return lines + cells_read_as(results)
 
 
