@@ -242,9 +242,11 @@ def _time_pairing_warning(sources) -> str:
     numbered = [s for s in runs if _numbered(s)]
     if numbered and len(numbered) < len(runs):
         timed = [s for s in runs if not _numbered(s)]
-        raise InputError(f"the {' and '.join(s.name for s in numbered)} run{'s' if len(numbered) > 1 else ''} "
-                         "store no times (their times are step numbers) while the "
-                         f"{' and '.join(s.name for s in timed)} store times, so steps would pair with times",
+        one = len(numbered) == 1
+        raise InputError(f"the {' and '.join(s.name for s in numbered)} run{'' if one else 's'} "
+                         f"store{'s' if one else ''} no times ({'its' if one else 'their'} times are step numbers) "
+                         f"while the {' and '.join(s.name for s in timed)} run{'' if len(timed) == 1 else 's'} "
+                         f"store{'s' if len(timed) == 1 else ''} times, so steps would pair with times",
                          where=numbered[0].path,
                          fix="give each run as a 'time,path' listing (or store the times in its files), then "
                              "measure it again")
@@ -258,9 +260,11 @@ def _time_pairing_warning(sources) -> str:
             "give each run as a 'time,path' listing (or store the times in its files) to pair them by time")
 
 
-def _rows_words(rows, order_words) -> str:
-    return "; ".join(f"{q} at t = {_times_words(g['time'])} ({order_words(g)})"
-                     for q, g in rows.groupby("quantity", sort=False))
+def _quantities_words(rows, shown: int = 2) -> str:
+    """The quantities of ``rows`` with their times, the first ``shown`` of them."""
+    named = [f"{q} at t = {_times_words(g['time'])}" for q, g in rows.groupby("quantity", sort=False)]
+    more = len(named) - shown
+    return ", ".join(named[:shown]) + (f" and {more} more quantit{'y' if more == 1 else 'ies'}" if more > 0 else "")
 
 
 def _order_warnings(table, formal_order) -> list:
@@ -277,22 +281,20 @@ def _order_warnings(table, formal_order) -> list:
     high = np.isfinite(order) & (order > limit)
     lines = []
     if high.any():
-        why = ("twice the formal order" if formal_order is not None else
-               "few schemes exceed fourth order") + "; our threshold"
-        lines.append(f"apparent order above {limit:g} ({why}) for "
-                     + _rows_words(table[high], lambda g: f"p up to {g['apparent_order'].max():.3g}, coarse "
-                                   f"value {_times_words(g['value_coarse'], 1)}")
-                     + ": the coarse value lies off the trend of the fine and medium ones; check that the coarse "
-                     "run is the same case measured the same way, or add a finer mesh")
+        row = table[high].loc[table[high]["apparent_order"].idxmax()]
+        why = "our threshold" + (", twice the formal order" if formal_order is not None else "")
+        lines.append(f"apparent order above {limit:g} ({why}) for {_quantities_words(table[high], 1)} (p up to "
+                     f"{row['apparent_order']:.3g}: {row['quantity']} at t = {row['time']:g}, coarse "
+                     f"{row['value_coarse']:.4g} against medium {row['value_medium']:.4g} and fine "
+                     f"{row['value_fine']:.4g}): the coarse value lies off the trend of the other two (outside the "
+                     "asymptotic range, or not one case measured alike); add a finer mesh, or check the coarse run")
     if formal_order is not None:
         off = np.isfinite(order) & ~high & (np.abs(order - formal_order) > FORMAL_ORDER_TOLERANCE)
         if off.any():
-            lines.append(f"apparent order more than {FORMAL_ORDER_TOLERANCE:g} from the formal order "
-                         f"{formal_order:g} (our threshold) for "
-                         + _rows_words(table[off], lambda g: f"p {g['apparent_order'].min():.3g} to "
-                                       f"{g['apparent_order'].max():.3g}")
-                         + ": the meshes are not in the asymptotic range of that order (column asymptotic_ratio "
-                         "away from 1); refine further before reading the GCI as the error band")
+            lines.append(f"apparent order more than {FORMAL_ORDER_TOLERANCE:g} (our threshold) from the formal order "
+                         f"{formal_order:g} for {_quantities_words(table[off])} (p {order[off].min():.3g} to "
+                         f"{order[off].max():.3g}): the meshes are not in the asymptotic range of that order "
+                         "(asymptotic_ratio away from 1); refine further before reading the GCI as the error band")
     return lines
 
 
