@@ -292,7 +292,7 @@ def _order_warnings(table, formal_order) -> list:
         off = np.isfinite(order) & ~high & (np.abs(order - formal_order) > FORMAL_ORDER_TOLERANCE)
         if off.any():
             lines.append(f"apparent order more than {FORMAL_ORDER_TOLERANCE:g} (our threshold) from the formal order "
-                         f"{formal_order:g} for {_quantities_words(table[off])} (p {order[off].min():.3g} to "
+                         f"{formal_order:g} for {_quantities_words(table[off], 1)} (p {order[off].min():.3g} to "
                          f"{order[off].max():.3g}): the meshes are not in the asymptotic range of that order "
                          "(asymptotic_ratio away from 1); refine further before reading the GCI as the error band")
     return lines
