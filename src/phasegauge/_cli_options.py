@@ -76,6 +76,19 @@ _mixture_options = (
 )
 
 
+#: how a series is read, as for measure (convergence; the same names and meaning as measure's own)
+_reading_options = (
+    click.option("--sort-by-time", is_flag=True,
+                 help="Order the steps by the times stored in their files, not by their names (default: refuse "
+                      "a series whose times do not increase)."),
+    click.option("--keep-3d", is_flag=True, help="Measure a mesh one cell thick as 3D (by default: per unit depth, "
+                                                 "as 2D)."),
+    click.option("--level-set", "level_set", is_flag=True,
+                 help="The field is a level set (a signed distance, 0 on the interface; --phase picks the side "
+                      "measured): volumes from the cut cells, its slope in place of widths."),
+)
+
+
 def _mixture_values(model_file=None, temperature=None, temperature_field=None, solute=None,
                     solute_receiving="rich", bulk_widths=1.0, equilibrium_tolerance=0.01,
                     capillary_length=None) -> dict:

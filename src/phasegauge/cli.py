@@ -16,7 +16,7 @@ import click
 
 from . import __version__
 from ._cli_options import (_add, _box, _command_line, _floats, _measure_options, _mixture_options, _mixture_values,
-                           _old_flags, _point_options)
+                           _old_flags, _point_options, _reading_options)
 from .errors import PhasegaugeError, PhasegaugeWarning, numbers_masked
 
 
@@ -536,15 +536,14 @@ def compare(path_a, path_b, field_a, field_b, range_a, range_b, phase_a, phase_b
 @click.argument("medium")
 @click.argument("coarse")
 @click.option("--field", "-f", default=None, help="Field mapped to c (needed when an input is a series).")
-@click.option("--range", "value_range", default="0,1", show_default=True, help="LO,HI of the field, as for measure.")
-@click.option("--phase", type=click.Choice(["upper", "lower"]), default="upper", show_default=True)
-@click.option("--level", type=float, default=0.5, show_default=True, help="Indicator level, as for measure.")
-@click.option("--velocity", default=None, help="Velocity field, as for measure.")
+@_add(_measure_options[1:] + _reading_options)
 @click.option("--analyses", default=",".join(("interface", "droplets", "mixing", "conservation")),
               show_default=True, help="Analyses run on inputs that are series.")
 @click.option("--cell-sizes", default=None,
               help="Representative cell sizes H_FINE,H_MEDIUM,H_COARSE (default: (measure / cells)^(1/dim)).")
 @click.option("--safety-factor", type=float, default=1.25, show_default=True, help="Safety factor of the GCI.")
+@click.option("--formal-order", type=float, default=None,
+              help="Order of accuracy of the scheme: the asymptotic ratio is taken with it [default: none, ratio NaN].")
 @click.option("--out", "-o", "out", required=True, help="Output folder.")
 @click.option("--overwrite", is_flag=True, help="Replace an existing output folder.")
 @click.option("--workers", "-j", type=int, default=1, show_default=True, help="Local worker processes.")
@@ -552,8 +551,9 @@ def compare(path_a, path_b, field_a, field_b, range_a, range_b, phase_a, phase_b
               help="Threads of each process for mesh work [default: the CPUs it may use, shared among the "
                    "workers].")
 @click.option("--quiet", "-q", is_flag=True, help="No progress display.")
-def convergence(fine, medium, coarse, field, value_range, phase, level, velocity, analyses, cell_sizes,
-                safety_factor, out, overwrite, workers, threads, quiet):
+def convergence(fine, medium, coarse, field, value_range, phase, level, velocity, field_location, sort_by_time,
+                keep_3d, level_set, analyses, cell_sizes, safety_factor, formal_order, out, overwrite, workers,
+                threads, quiet):
     """Grid convergence of one case run on three meshes (Celik et al. 2008).
 
     FINE, MEDIUM and COARSE are each a series or the output folder of a
@@ -567,10 +567,11 @@ def convergence(fine, medium, coarse, field, value_range, phase, level, velocity
     if field is not None:
         from .run.options import MeasureOptions
 
-        options = MeasureOptions(field=field, range=value_range, phase=phase, level=level,
-                                 velocity=velocity,
+        options = MeasureOptions(field=field, range=value_range, phase=phase, level=level, velocity=velocity,
+                                 field_location=field_location or "auto", sort_by_time=sort_by_time,
+                                 keep_3d=keep_3d, level_set=level_set,
                                  analyses=tuple(a.strip() for a in analyses.split(",") if a.strip()))
-    result = grid_convergence_run(fine, medium, coarse, options=options,
+    result = grid_convergence_run(fine, medium, coarse, options=options, formal_order=formal_order,
                                   cell_sizes=_floats(cell_sizes, "--cell-sizes", 3), safety_factor=safety_factor,
                                   out=out, overwrite=overwrite, workers=workers, threads=threads,
                                   progress=None if not quiet else False)

@@ -26,13 +26,16 @@ def test_celik_2008_table_1_first_column():
 def test_constant_ratio_two_worked_example():
     # NASA verification tutorial (examining spatial grid convergence): h = 1, 2, 4,
     # f = 0.97050, 0.96854, 0.96178 -> p = 1.78618, f_exact = 0.971300, GCI12 = 0.1031 %, GCI23 = 0.3562 %,
-    # and GCI23 / (r^p GCI12) close to 1 (asymptotic range)
+    # (its GCI23 / (r^p GCI12) with the apparent order is |f1 / f2| by algebra, so no check: NaN without a
+    # formal order; with p_f = 2, by hand: (0.00676 / 3) / (4 x 0.00196 / 3) = 0.8622)
     out = grid_convergence(0.97050, 0.96854, 0.96178, cell_sizes=(1.0, 2.0, 4.0))
     assert out["apparent_order"] == pytest.approx(1.78618, abs=2e-5)
     assert round(out["extrapolated"], 6) == 0.971300
     assert round(100 * out["gci_fine"], 4) == 0.1031
     assert round(100 * out["gci_medium"], 4) == 0.3562
-    assert out["asymptotic_ratio"] == pytest.approx(1.0, abs=0.01)
+    assert np.isnan(out["asymptotic_ratio"])
+    out = grid_convergence(0.97050, 0.96854, 0.96178, cell_sizes=(1.0, 2.0, 4.0), formal_order=2)
+    assert out["asymptotic_ratio"] == pytest.approx(0.00676 / (4 * 0.00196), rel=1e-9)
 
 
 def test_exact_power_law_recovered_with_non_constant_ratios():
@@ -42,8 +45,26 @@ def test_exact_power_law_recovered_with_non_constant_ratios():
     out = grid_convergence(*phi, cell_sizes=h)
     assert out["apparent_order"] == pytest.approx(1.7, rel=1e-9)
     assert out["extrapolated"] == pytest.approx(2.0, rel=1e-12)
-    # relative errors divide by phi1 and phi2, so the asymptotic ratio of an exact power law is phi1 / phi2
-    assert out["asymptotic_ratio"] == pytest.approx(phi[0] / phi[1], rel=1e-9)
+    # with the formal order 1.7 the ratio (h3^p - h2^p)/(r32^p - 1) / (r21^p (h2^p - h1^p)/(r21^p - 1))
+    # = h2^p / (r21^p h1^p) is 1 exactly (algebra), not phi1 / phi2 as with relative GCIs
+    out = grid_convergence(*phi, cell_sizes=h, formal_order=1.7)
+    assert out["asymptotic_ratio"] == pytest.approx(1.0, rel=1e-9)
+
+
+def test_asymptotic_ratio_checks_the_formal_order_not_the_apparent_one():
+    # phi = 1 + h^2 on h = 1, 2, 4: 2, 5, 17, eps21 = 3, eps32 = 12 (exact second order). Roache (1998)'s
+    # GCI_23 = r^pf GCI_12 with the GCIs Fs |eps| / (r^pf - 1), by hand: p_f = 2: (12 / 3) / (4 x 3 / 3) = 1;
+    # p_f = 1: (12 / 1) / (2 x 3 / 1) = 2. Without a formal order it was |phi1 / phi2| = 0.4 whatever the data
+    out = grid_convergence(2.0, 5.0, 17.0, cell_sizes=(1.0, 2.0, 4.0))
+    assert out["apparent_order"] == pytest.approx(2.0, rel=1e-12)
+    assert np.isnan(out["asymptotic_ratio"])
+    assert grid_convergence(2.0, 5.0, 17.0, cell_sizes=(1.0, 2.0, 4.0), formal_order=2)["asymptotic_ratio"] == \
+        pytest.approx(1.0, rel=1e-12)
+    assert grid_convergence(2.0, 5.0, 17.0, cell_sizes=(1.0, 2.0, 4.0), formal_order=1)["asymptotic_ratio"] == \
+        pytest.approx(2.0, rel=1e-12)
+    for bad in (0, -1, float("nan"), "two"):
+        with pytest.raises(OptionError, match="formal order must be a positive number"):
+            grid_convergence(2.0, 5.0, 17.0, cell_sizes=(1.0, 2.0, 4.0), formal_order=bad)
 
 
 def test_oscillatory_flagged_and_arrays_element_by_element():

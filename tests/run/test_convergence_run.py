@@ -182,3 +182,150 @@ def test_diverging_values_are_flagged_and_warned_once(tmp_path):
 
     words = [t.get_text() for t in plot_convergence(result.table).findobj(Text)]
     assert any(w.startswith("divergent") and "phase_volume" in w for w in words)
+
+
+def _folders(tmp_path, paths, options_of):
+    """Measure each series into a folder, with the options ``options_of(k)``; return the folders."""
+    folders = []
+    for k, path in enumerate(paths):
+        folder = tmp_path / f"m{k}"
+        measure(path, options=options_of(k), out=folder, contours=False)
+        folders.append(folder)
+    return folders
+
+
+@pytest.mark.parametrize("slip, words", [({"phase": "lower"}, "--phase: upper (fine, medium) against lower (coarse)"),
+                                         ({"range": (0.0, 2.0)}, "--range: 0,1 (fine, medium) against 0,2 (coarse)")])
+def test_runs_measured_with_different_options_are_refused(tmp_path, slip, words):
+    # the same three runs measured alike give p = 2 (midpoint rule of x^2, analytic; see _series); the coarse
+    # one measured with another phase or range read p = 17-19 and a GCI of 4e-8 to 1e-7 without a word
+    paths = _three(tmp_path)
+    same = dict(field="c", analyses=("conservation",))
+    folders = _folders(tmp_path, paths, lambda k: MeasureOptions(**same, **(slip if k == 2 else {})))
+    with pytest.raises(OptionError, match=words.replace("(", r"\(").replace(")", r"\)")) as err:
+        grid_convergence_run(*folders)
+    assert err.value.where == str(folders[2]) and "measure the runs with the same options" in err.value.fix
+    # a series measured here with the options given, against a folder measured with others
+    with pytest.raises(OptionError, match="different --" + next(iter(slip))):
+        grid_convergence_run(paths[0], paths[1], folders[2], options=MeasureOptions(**same))
+    # measured alike: the analytic order, and each run's options in the manifest
+    alike = _folders(tmp_path / "alike", paths, lambda k: MeasureOptions(**same))
+    result = grid_convergence_run(*alike, out=tmp_path / "conv")
+    rows = result.table[result.table["quantity"] == "phase_volume"]
+    assert rows["apparent_order"].to_numpy() == pytest.approx(2.0, rel=1e-6)
+    manifest = json.loads((tmp_path / "conv" / "manifest.json").read_text())
+    assert [m["options"]["phase"] for m in manifest["meshes"]] == ["upper"] * 3
+    assert [m["options"]["range"] for m in manifest["meshes"]] == [[0.0, 1.0]] * 3
+
+
+def _numbered_series(folder, n, count):
+    """The series of _series at t = 0.1 k, written as numbered files that store no time."""
+    os.makedirs(folder, exist_ok=True)
+    mesh = grid_mesh((n, n), kind="quad")
+    x = mesh.cell_centroids[:, 0]
+    from phasegauge.meshgen import to_meshio
+
+    for k in range(count):
+        to_meshio(mesh, cell_data={"c": x ** 2 * (1 - 0.1 * k / 2)}).write(os.path.join(folder, f"s_{k:04d}.vtu"))
+    return folder
+
+
+def test_runs_storing_no_times_are_paired_by_step_number_with_a_warning(tmp_path):
+    # three runs written at one interval (t = 0.1 k) whose files store no time: step k pairs with step k, which
+    # is right here, so p = 2 (midpoint rule of x^2, analytic); the warning says how the steps were paired
+    options = MeasureOptions(field="c", analyses=("conservation",))
+    paths = [_numbered_series(str(tmp_path / name), n, 3) for name, n in zip(("fine", "medium", "coarse"), CELLS)]
+    with pytest.warns(SeriesWarning, match=r"store no times, so their steps are paired by step number .*right only "
+                                           r"if every run wrote .*'time,path' listing"):
+        result = grid_convergence_run(*paths, options=options, out=tmp_path / "conv")
+    rows = result.table[result.table["quantity"] == "phase_volume"]
+    assert rows["time"].tolist() == [0.0, 1.0, 2.0]  # step numbers
+    assert rows["apparent_order"].to_numpy() == pytest.approx(2.0, rel=1e-6)
+    manifest = json.loads((tmp_path / "conv" / "manifest.json").read_text())
+    assert [m["time_origin"] for m in manifest["meshes"]] == ["index"] * 3
+    assert any("paired by step number" in w for w in manifest["warnings"])
+    # step counts that differ are named
+    coarse = _numbered_series(str(tmp_path / "coarse4"), CELLS[2], 4)
+    with pytest.warns(SeriesWarning, match=r"step counts differ: fine 3, medium 3, coarse 4"):
+        grid_convergence_run(paths[0], paths[1], coarse, options=options)
+
+
+def test_runs_some_storing_times_and_some_not_are_refused(tmp_path):
+    # the fine and medium runs store their times (0, 0.1, 0.2), the coarse one does not: its step numbers
+    # 0, 1, 2 read as times paired the coarse run's first output with every fine time (p 11.8 and 13.5 at
+    # t = 0.1 and 0.2 for an analytic 2, GCI 1e-6)
+    from phasegauge.errors import InputError
+
+    options = MeasureOptions(field="c", analyses=("conservation",))
+    fine = _series(str(tmp_path / "fine"), CELLS[0], [0.0, 0.1, 0.2])
+    medium = _series(str(tmp_path / "medium"), CELLS[1], [0.0, 0.1, 0.2])
+    coarse = _numbered_series(str(tmp_path / "coarse"), CELLS[2], 3)
+    with pytest.raises(InputError, match=r"the coarse run stores no times \(its times are step numbers\) while "
+                                         r"the fine and medium runs store times") as err:
+        grid_convergence_run(fine, medium, coarse, options=options)
+    assert "'time,path' listing" in err.value.fix
+    # a one-step (steady) run without a time pairs with every time, as before
+    steady = _numbered_series(str(tmp_path / "steady"), CELLS[2], 1)
+    with pytest.warns(ResolutionWarning):  # the steady coarse value is off the unsteady trend
+        grid_convergence_run(fine, medium, steady, options=options)
+
+
+def test_an_order_off_the_trend_and_away_from_the_formal_order_is_warned(tmp_path):
+    options = MeasureOptions(field="c", analyses=("conservation",))
+    paths = _three(tmp_path)
+    h = np.array([1 / n for n in CELLS])
+    # exact second order (midpoint rule of x^2: eps proportional to h^2): with the formal order 2 the ratio
+    # (|eps32| / (r32^2 - 1)) / (r21^2 |eps21| / (r21^2 - 1)) is 1 (Roache 1998, GCI_23 = r^p GCI_12, by
+    # hand: h2^2 / (r21^2 h1^2) = 1); with the formal order 1.2 it is (h3^2 - h2^2)(r21^1.2 - 1) /
+    # ((r32^1.2 - 1) r21^1.2 (h2^2 - h1^2)), and p = 2 lies 0.8 from it (beyond our threshold 0.5)
+    rows = lambda res: res.table[res.table["quantity"] == "phase_volume"]  # noqa: E731
+    result = grid_convergence_run(*paths, options=options, formal_order=2)
+    assert rows(result)["asymptotic_ratio"].to_numpy() == pytest.approx(1.0, rel=1e-6)
+    r21, r32 = h[1] / h[0], h[2] / h[1]
+    a, b = r21 ** 1.2, r32 ** 1.2
+    by_hand = (h[2] ** 2 - h[1] ** 2) * (a - 1) / ((b - 1) * a * (h[1] ** 2 - h[0] ** 2))
+    with pytest.warns(ResolutionWarning, match=r"more than 0.5 \(our threshold\) from the formal order 1.2 for "
+                                               r"phase_volume at t = 0, 0.1, 0.2"):
+        result = grid_convergence_run(*paths, options=options, formal_order=1.2, out=tmp_path / "conv")
+    assert rows(result)["asymptotic_ratio"].to_numpy() == pytest.approx(by_hand, rel=1e-6)
+    assert abs(by_hand - 1) > 0.1
+    manifest = json.loads((tmp_path / "conv" / "manifest.json").read_text())
+    assert manifest["formal_order"] == 1.2
+    assert np.isnan(rows(grid_convergence_run(*paths, options=options))["asymptotic_ratio"]).all()
+    # the coarse field scaled by 0.7: the coarse value off the trend, p far above 5 (our threshold) for an
+    # analytic order of 2
+    odd = [paths[0], paths[1], _series(str(tmp_path / "odd"), CELLS[2], [0.0, 0.2], factor=0.7)]
+    with pytest.warns(ResolutionWarning, match=r"apparent order above 5 \(our threshold\) for phase_volume at "
+                                               r"t = 0, 0.1, 0.2.* coarse 0.2.* off the trend"):
+        result = grid_convergence_run(*odd, options=options)
+    assert (rows(result)["apparent_order"] > 5).all()
+    with pytest.warns(ResolutionWarning, match=r"apparent order above 4 \(our threshold, twice the formal order"):
+        grid_convergence_run(*odd, options=options, formal_order=2)
+
+
+def test_level_set_series_on_the_command_line_give_the_api_order(tmp_path):
+    # a circle of radius 0.4 + 0.2 t as an exact signed distance on points of [-1, 1]^2: --level-set on the
+    # command takes it as a level set, as MeasureOptions(level_set=True) does; the areas lie near pi R^2
+    # (analytic) and the order is the API's. Without it the field read as an indicator was the disc phi < 0.5
+    paths = []
+    for name, n in zip(("fine", "medium", "coarse"), (40, 28, 20)):
+        mesh = grid_mesh((n, n), bounds=[(-1.0, 1.0), (-1.0, 1.0)], kind="quad")
+        r = np.hypot(mesh.points[:, 0], mesh.points[:, 1])
+        folder = tmp_path / name
+        folder.mkdir()
+        paths.append(write_listing(str(folder), ((t, f"s_{k}.vtu", mesh, None, {"phi": r - (0.4 + 0.2 * t)})
+                                                 for k, t in enumerate((0.0, 0.1)))))
+    out = str(tmp_path / "conv")
+    run = CliRunner().invoke(main, ["convergence", *paths, "--field", "phi", "--phase", "lower", "--level-set",
+                                    "--analyses", "interface,conservation", "-o", out, "-q"])
+    assert run.exit_code == 0, run.output
+    table = pd.read_csv(os.path.join(out, "convergence.csv"))
+    cli_rows = table[table["quantity"] == "phase_volume"].reset_index(drop=True)
+    assert cli_rows["value_fine"].to_numpy() == pytest.approx(np.pi * np.array([0.4, 0.42]) ** 2, rel=5e-3)
+    api = grid_convergence_run(*paths, options=MeasureOptions(field="phi", phase="lower", level_set=True,
+                                                              analyses=("interface", "conservation"))).table
+    api_rows = api[api["quantity"] == "phase_volume"].reset_index(drop=True)
+    assert cli_rows["apparent_order"].to_numpy() == pytest.approx(api_rows["apparent_order"].to_numpy(), rel=1e-9)
+    manifest = json.loads(open(os.path.join(out, "manifest.json")).read())
+    assert manifest["options"]["level_set"] is True
+    assert all(m["options"]["level_set"] for m in manifest["meshes"])

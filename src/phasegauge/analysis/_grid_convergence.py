@@ -24,7 +24,8 @@ from ..errors import OptionError
 
 __all__ = ["representative_cell_size", "grid_convergence", "convergence_table", "droplet_integrals", "paired_times",
            "span_reach", "covered_span", "SPAN_REACH_SHARE", "GCI_SAFETY_FACTOR", "CONVERGENCE_FIELDS",
-           "CONVERGENCE_COLUMNS"]
+           "CONVERGENCE_COLUMNS", "check_formal_order", "implausible_order_limit", "HIGHEST_PLAUSIBLE_ORDER",
+           "FORMAL_ORDER_TOLERANCE"]
 
 #: safety factor of the fine-grid GCI for three meshes (Roache 1998; Celik et al. 2008)
 GCI_SAFETY_FACTOR = 1.25
@@ -88,6 +89,34 @@ SMALLEST_ORDER = 1e-6
 #: the search for the apparent order stops here (no order beyond it is read; our threshold)
 LARGEST_ORDER = 1e4
 
+#: without a formal order, an apparent order above this is implausible: the coarse value lies off the trend
+#: of the other two (few schemes exceed fourth order; our threshold)
+HIGHEST_PLAUSIBLE_ORDER = 5.0
+
+#: an apparent order more than this away from the formal order is outside the asymptotic range (our threshold)
+FORMAL_ORDER_TOLERANCE = 0.5
+
+
+def check_formal_order(formal_order):
+    """The formal order as a float (None stays None); refused unless positive and finite."""
+    if formal_order is None:
+        return None
+    try:
+        value = float(formal_order)
+    except (TypeError, ValueError):
+        value = float("nan")
+    if not (0.0 < value < np.inf):
+        raise OptionError(f"the formal order must be a positive number, found {formal_order!r}",
+                          fix="give the order of accuracy of the scheme, for example 2")
+    return value
+
+
+def implausible_order_limit(formal_order=None) -> float:
+    """The apparent order above which the coarse value lies off the trend: twice the formal order when
+    given, else :data:`HIGHEST_PLAUSIBLE_ORDER` (our thresholds)."""
+    formal_order = check_formal_order(formal_order)
+    return HIGHEST_PLAUSIBLE_ORDER if formal_order is None else 2.0 * formal_order
+
 
 def _log_model_ratio(p, r21, r32, s):
     """ln of r21^p (r32^p - s) / (r21^p - s), the model's |eps32/eps21| at order p (no overflow)."""
@@ -124,7 +153,7 @@ def _apparent_order(ratio, r21, r32, tolerance, max_iterations):
 
 
 def grid_convergence(fine, medium, coarse, *, cell_sizes, safety_factor: float = GCI_SAFETY_FACTOR,
-                     tolerance: float = 1e-12, max_iterations: int = 500, scale=None) -> dict:
+                     tolerance: float = 1e-12, max_iterations: int = 500, scale=None, formal_order=None) -> dict:
     """Apparent order, extrapolated value and Grid Convergence Index of values on three meshes.
 
     Parameters
@@ -141,6 +170,10 @@ def grid_convergence(fine, medium, coarse, *, cell_sizes, safety_factor: float =
         ``xtol`` and ``rtol``).
     max_iterations : int
         Most iterations of the root search.
+    scale : float or array_like, optional
+        The quantity's scale for the round-off test (1 for a fraction).
+    formal_order : float, optional
+        The scheme's order of accuracy p_f, for the asymptotic-range ratio (NaN without it).
 
     Returns
     -------
@@ -150,8 +183,10 @@ def grid_convergence(fine, medium, coarse, *, cell_sizes, safety_factor: float =
         (the approximate relative error e_a21 = |(phi1 - phi2)/phi1|),
         ``extrapolated_relative_error_fine`` (e_ext21 = |(phi_ext21 - phi1)/phi_ext21|),
         ``gci_fine`` (Fs e_a21 / (r21^p - 1)), ``gci_medium`` (Fs e_a32 / (r32^p - 1)),
-        ``asymptotic_ratio`` (GCI_medium / (r21^p GCI_fine), near 1 in the
-        asymptotic range), ``oscillatory`` (True when eps32/eps21 < 0) and
+        ``asymptotic_ratio`` (with the formal order p_f: GCI_medium / (r21^pf GCI_fine), the
+        GCIs taken with p_f and in the quantity's units, Fs |eps| / (r^pf - 1), so 1 in the
+        asymptotic range of that order; NaN without a formal order, since with the apparent
+        order it is |phi1 / phi2| whatever the data), ``oscillatory`` (True when eps32/eps21 < 0) and
         ``divergent`` (True when Celik's equation has no positive root: the values move
         apart, or come no closer, as the mesh is refined; for a constant ratio
         |eps21| >= |eps32|). Relative errors and GCIs are fractions, not percent. Where
@@ -163,7 +198,8 @@ def grid_convergence(fine, medium, coarse, *, cell_sizes, safety_factor: float =
     Raises
     ------
     OptionError
-        Cell sizes not increasing from fine to coarse, or a safety factor below 1.
+        Cell sizes not increasing from fine to coarse, a safety factor below 1, or a formal order
+        that is not a positive number.
 
     References
     ----------
@@ -173,6 +209,7 @@ def grid_convergence(fine, medium, coarse, *, cell_sizes, safety_factor: float =
     Roache, P. J. (1998). Verification and Validation in Computational Science and
     Engineering. Hermosa, Albuquerque (the asymptotic-range check).
     """
+    formal_order = check_formal_order(formal_order)
     if not (safety_factor >= 1.0):
         raise OptionError(f"safety factor must be at least 1, found {safety_factor!r}",
                           fix="use 1.25 for three meshes (Celik et al. 2008)")
@@ -211,7 +248,12 @@ def grid_convergence(fine, medium, coarse, *, cell_sizes, safety_factor: float =
         e_ext = np.abs((extrapolated - phi1) / extrapolated)
         gci_fine = safety_factor * e21 / (r21p - 1.0)
         gci_medium = safety_factor * e32 / (r32p - 1.0)
-        asymptotic = gci_medium / (r21p * gci_fine)
+        if formal_order is None:  # with the apparent order the ratio is |phi1 / phi2|: no check
+            asymptotic = np.full(ratio.shape, np.nan)
+        else:  # Roache's GCI_23 = r21^pf GCI_12, the GCIs at the formal order in the quantity's units
+            r21f, r32f = r21 ** formal_order, r32 ** formal_order
+            asymptotic = np.where(defined, (np.abs(eps32) / (r32f - 1.0)) / (r21f * np.abs(eps21) / (r21f - 1.0)),
+                                  np.nan)
     out = {"refinement_ratio_21": r21, "refinement_ratio_32": r32, "apparent_order": p,
            "extrapolated": extrapolated, "relative_error_fine": e21, "extrapolated_relative_error_fine": e_ext,
            "gci_fine": gci_fine, "gci_medium": gci_medium, "asymptotic_ratio": asymptotic,
@@ -316,7 +358,8 @@ def _values_at(frame, column, times):
     return np.where(hit, v[exact], np.interp(times, t, v))
 
 
-def convergence_table(fine, medium, coarse, *, cell_sizes, safety_factor: float = GCI_SAFETY_FACTOR):
+def convergence_table(fine, medium, coarse, *, cell_sizes, safety_factor: float = GCI_SAFETY_FACTOR,
+                      formal_order=None):
     """Grid convergence of every scalar quantity of three runs' per-step tables, at paired times.
 
     Parameters
@@ -327,6 +370,8 @@ def convergence_table(fine, medium, coarse, *, cell_sizes, safety_factor: float 
     cell_sizes : sequence of 3 floats
         Representative cell sizes h1 < h2 < h3.
     safety_factor : float
+    formal_order : float, optional
+        The scheme's order of accuracy, for ``asymptotic_ratio`` (see :func:`grid_convergence`).
 
     Returns
     -------
@@ -360,7 +405,8 @@ def convergence_table(fine, medium, coarse, *, cell_sizes, safety_factor: float 
         scale = 1.0 if column in UNIT_SCALE else None
         if column in SCALE_OF and SCALE_OF[column] in shared:
             scale = max(float(np.nanmax(np.abs(f[SCALE_OF[column]].to_numpy(dtype=float)))) for f in frames)
-        figures = grid_convergence(*values, cell_sizes=h, safety_factor=safety_factor, scale=scale)
+        figures = grid_convergence(*values, cell_sizes=h, safety_factor=safety_factor, scale=scale,
+                                   formal_order=formal_order)
         block = {"quantity": column, "time": times, "value_fine": values[0], "value_medium": values[1],
                  "value_coarse": values[2], "cell_size_fine": h[0], "cell_size_medium": h[1],
                  "cell_size_coarse": h[2]}

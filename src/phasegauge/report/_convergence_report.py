@@ -72,7 +72,8 @@ def plot_convergence(table, *, quantities=None, limit: int = 5, time_origin: str
 
 
 def write_convergence_report(out, table, *, sources: list, safety_factor: float, options, version: str,
-                             started: float, notes: list = (), time_origin: str | None = None) -> None:
+                             started: float, notes: list = (), time_origin: str | None = None,
+                             formal_order: float | None = None) -> None:
     """Write the outputs of a grid convergence study into ``out`` (each file atomically).
 
     Parameters
@@ -94,6 +95,8 @@ def write_convergence_report(out, table, *, sources: list, safety_factor: float,
         manifest under ``warnings``.
     time_origin : str, optional
         As for :func:`plot_convergence`.
+    formal_order : float, optional
+        The scheme's order of accuracy the asymptotic ratio was taken with (None: not given).
     """
     out = os.fspath(out)
     atomic_write_csv(os.path.join(out, "convergence.csv"), table)
@@ -103,7 +106,8 @@ def write_convergence_report(out, table, *, sources: list, safety_factor: float,
         atomic_save_figure(os.path.join(out, "convergence.png"), figure)
         written.append("convergence.png")
     manifest = run_manifest("convergence", version=version, inputs=[],
-                            fields={"meshes": list(sources), "safety_factor": safety_factor, "options": options,
+                            fields={"meshes": list(sources), "safety_factor": safety_factor,
+                                    "formal_order": formal_order, "options": options,
                                     "warnings": list(notes)},
                             outputs=written, timings={"total_seconds": round(time.time() - started, 3)})
     atomic_write_json(os.path.join(out, "manifest.json"), manifest)

@@ -20,10 +20,14 @@ from ..errors import (InputError, InputFileNotFound, MeshWarning, OptionError, P
                       ResolutionWarning, SeriesWarning)
 
 __all__ = ["ConvergenceSource", "ConvergenceResult", "grid_convergence_run", "is_measure_folder",
-           "MESH_NAMES"]
+           "MESH_NAMES", "MEASURING_OPTIONS"]
 
 #: the three meshes, finest first
 MESH_NAMES = ("fine", "medium", "coarse")
+
+#: measure options that change the figures: the three runs must share them (named as on the command line)
+MEASURING_OPTIONS = ("field", "range", "phase", "level", "level_set", "field_location", "interface_kind", "box",
+                     "periodic", "keep_3d", "adjacency")
 
 
 @dataclass
@@ -45,14 +49,15 @@ class ConvergenceSource:
     keep_3d: bool = False  # a measure folder's option
     depth: float = 0.0  # of a mesh one cell thick measured as 2D
     time_origin: str = ""  # where the run's times came from ('index': it stores none, its times are step numbers)
+    options: dict = dataclasses.field(default_factory=dict)  # the measure options it was measured with (JSON)
 
     def record(self) -> dict:
         """The source as the manifest keeps it."""
         return {"mesh": self.name, "path": os.path.abspath(self.path), "kind": self.kind,
                 "series": self.series_path, "field": self.field, "cells": self.n_cells,
                 "dimension": self.dimension, "total_measure": self.total_measure, "cell_size": self.cell_size,
-                "steps": 0 if self.steps is None else int(len(self.steps)),
-                **({"depth": self.depth} if self.depth else {})}
+                "steps": 0 if self.steps is None else int(len(self.steps)), "time_origin": self.time_origin,
+                **({"depth": self.depth} if self.depth else {}), "options": self.options}
 
 
 @dataclass
@@ -105,6 +110,7 @@ def _read_folder(source: ConvergenceSource) -> None:
                                            "or the series itself")
     source.series_path = str((manifest.get("series") or {}).get("path", ""))
     source.time_origin = str((manifest.get("series") or {}).get("time_origin", ""))
+    source.options = dict(manifest.get("options") or {})
     source.field = str((manifest.get("options") or {}).get("field", ""))
     source.keep_3d = bool((manifest.get("options") or {}).get("keep_3d", False))
     try:
@@ -182,9 +188,119 @@ def _unpaired_warning(fine_times, paired, sources) -> str:
             "left out of the pairing; run the three meshes over the same times to compare them there")
 
 
+def _as_json(value):
+    """``value`` as the manifest holds it (tuples as lists, objects as text)."""
+    import json
+
+    return json.loads(json.dumps(value, default=str))
+
+
+def _option_words(value) -> str:
+    if isinstance(value, bool):
+        return "on" if value else "off"
+    if value is None:
+        return "not given"
+    if isinstance(value, list):
+        return ",".join(_option_words(v) for v in value) or "none"
+    return f"{value:g}" if isinstance(value, float) else str(value)
+
+
+def _check_same_options(sources) -> None:
+    """Refuse runs measured with different options that change the figures (:data:`MEASURING_OPTIONS`).
+
+    A run whose manifest lacks an option (an older measure run) is not compared on it.
+    """
+    for key in MEASURING_OPTIONS:
+        groups = {}
+        for source in sources:
+            if key in source.options:
+                value = source.options[key]
+                groups.setdefault(_option_words(value), []).append(source)
+        if len(groups) > 1:
+            (first, runs), (second, others) = list(groups.items())[:2]
+            names = [", ".join(s.name for s in group) for group in (runs, others)]
+            flag = "--" + key.replace("_", "-")
+            raise OptionError(f"the runs were measured with different {flag}: {first} ({names[0]}) against "
+                              f"{second} ({names[1]}), so their figures are not those of one case",
+                              where=others[0].path,
+                              fix="measure the runs with the same options (or give the three series with the "
+                                  "options once)")
+
+
+def _numbered(source) -> bool:
+    """Whether a run's times are step numbers (it stores none: time origin ``index``)."""
+    return "index" in str(source.time_origin).split("+")
+
+
+def _time_pairing_warning(sources) -> str:
+    """Refuse runs some of which store times and some not; one line when all pair by step number ("" else).
+
+    Runs of one step (steady results) and runs whose time origin is unknown (older measure
+    folders) are left out.
+    """
+    runs = [s for s in sources if s.time_origin and s.steps is not None and len(s.steps) > 1]
+    numbered = [s for s in runs if _numbered(s)]
+    if numbered and len(numbered) < len(runs):
+        timed = [s for s in runs if not _numbered(s)]
+        one = len(numbered) == 1
+        raise InputError(f"the {' and '.join(s.name for s in numbered)} run{'' if one else 's'} "
+                         f"store{'s' if one else ''} no times ({'its' if one else 'their'} times are step numbers) "
+                         f"while the {' and '.join(s.name for s in timed)} run{'' if len(timed) == 1 else 's'} "
+                         f"store{'s' if len(timed) == 1 else ''} times, so steps would pair with times",
+                         where=numbered[0].path,
+                         fix="give each run as a 'time,path' listing (or store the times in its files), then "
+                             "measure it again")
+    if len(numbered) < 2:
+        return ""
+    counts = [len(s.steps) for s in numbered]
+    differ = (" (their step counts differ: " + ", ".join(f"{s.name} {n}" for s, n in zip(numbered, counts)) + ")"
+              if len(set(counts)) > 1 else "")
+    return ("the runs store no times, so their steps are paired by step number (step k with step k)" + differ
+            + ": right only if every run wrote its outputs at the same physical interval from the same start; "
+            "give each run as a 'time,path' listing (or store the times in its files) to pair them by time")
+
+
+def _quantities_words(rows, shown: int = 2) -> str:
+    """The quantities of ``rows`` with their times, the first ``shown`` of them."""
+    named = [f"{q} at t = {_times_words(g['time'])}" for q, g in rows.groupby("quantity", sort=False)]
+    more = len(named) - shown
+    return ", ".join(named[:shown]) + (f" and {more} more quantit{'y' if more == 1 else 'ies'}" if more > 0 else "")
+
+
+def _order_warnings(table, formal_order) -> list:
+    """One line for apparent orders above the plausible limit (the coarse value off the trend), one for
+    orders more than :data:`FORMAL_ORDER_TOLERANCE` from the formal order (none, or one each)."""
+    import numpy as np
+
+    from ..analysis.convergence import FORMAL_ORDER_TOLERANCE, implausible_order_limit
+
+    if not len(table):
+        return []
+    order = table["apparent_order"].to_numpy(dtype=float)
+    limit = implausible_order_limit(formal_order)
+    high = np.isfinite(order) & (order > limit)
+    lines = []
+    if high.any():
+        row = table[high].loc[table[high]["apparent_order"].idxmax()]
+        why = "our threshold" + (", twice the formal order" if formal_order is not None else "")
+        lines.append(f"apparent order above {limit:g} ({why}) for {_quantities_words(table[high], 1)} (p up to "
+                     f"{row['apparent_order']:.3g}: {row['quantity']} at t = {row['time']:g}, coarse "
+                     f"{row['value_coarse']:.4g} against medium {row['value_medium']:.4g} and fine "
+                     f"{row['value_fine']:.4g}): the coarse value lies off the trend of the other two (outside the "
+                     "asymptotic range, or not one case measured alike); add a finer mesh, or check the coarse run")
+    if formal_order is not None:
+        off = np.isfinite(order) & ~high & (np.abs(order - formal_order) > FORMAL_ORDER_TOLERANCE)
+        if off.any():
+            lines.append(f"apparent order more than {FORMAL_ORDER_TOLERANCE:g} (our threshold) from the formal order "
+                         f"{formal_order:g} for {_quantities_words(table[off], 1)} (p {order[off].min():.3g} to "
+                         f"{order[off].max():.3g}): the meshes are not in the asymptotic range of that order "
+                         "(asymptotic_ratio away from 1); refine further before reading the GCI as the error band")
+    return lines
+
+
 def grid_convergence_run(fine, medium, coarse, *, options=None, cell_sizes=None, safety_factor: float = 1.25,
-                         out=None, overwrite: bool = False, workers: int = 1, threads: int | None = None,
-                         progress: bool | None = False) -> ConvergenceResult:
+                         formal_order=None, out=None, overwrite: bool = False, workers: int = 1,
+                         threads: int | None = None, progress: bool | None = False) -> ConvergenceResult:
     """Grid convergence of every per-step quantity of one case run on three meshes.
 
     Parameters
@@ -198,6 +314,11 @@ def grid_convergence_run(fine, medium, coarse, *, options=None, cell_sizes=None,
         Default: (total measure / number of cells)^(1/dimension) of each first step's mesh.
     safety_factor : float
         Safety factor of the GCI (1.25 for three meshes).
+    formal_order : float, optional
+        The scheme's order of accuracy: the asymptotic-range ratio is taken with it, and apparent
+        orders more than :data:`~phasegauge.analysis.convergence.FORMAL_ORDER_TOLERANCE` from it, or
+        above twice it, are warned of. Without it the ratio is NaN and orders above
+        :data:`~phasegauge.analysis.convergence.HIGHEST_PLAUSIBLE_ORDER` are warned of.
     out : str or os.PathLike, optional
         Output folder (``convergence.csv``, ``convergence.png``, ``manifest.json``);
         refused when it exists unless ``overwrite``.
@@ -211,6 +332,13 @@ def grid_convergence_run(fine, medium, coarse, *, options=None, cell_sizes=None,
     -------
     ConvergenceResult
 
+    Raises
+    ------
+    OptionError
+        Runs measured with different options that change the figures (:data:`MEASURING_OPTIONS`).
+    InputError
+        Runs some of which store times and some not (steps would pair with times).
+
     References
     ----------
     Celik et al. (2008), J. Fluids Eng. 130, 078001.
@@ -219,16 +347,19 @@ def grid_convergence_run(fine, medium, coarse, *, options=None, cell_sizes=None,
 
     with output_transaction(out):
         return _run(fine, medium, coarse, options=options, cell_sizes=cell_sizes, safety_factor=safety_factor,
-                    out=out, overwrite=overwrite, workers=workers, threads=threads, progress=progress)
+                    formal_order=formal_order, out=out, overwrite=overwrite, workers=workers, threads=threads,
+                    progress=progress)
 
 
-def _run(fine, medium, coarse, *, options, cell_sizes, safety_factor, out, overwrite, workers, threads, progress):
-    from ..analysis.convergence import (convergence_table, droplet_integrals, paired_times,
+def _run(fine, medium, coarse, *, options, cell_sizes, safety_factor, formal_order, out, overwrite, workers, threads,
+         progress):
+    from ..analysis.convergence import (check_formal_order, convergence_table, droplet_integrals, paired_times,
                                         representative_cell_size)
     from .options import check_workers
 
     started = time.time()
     sizes = _check_cell_sizes(cell_sizes)
+    formal_order = check_formal_order(formal_order)
     if not safety_factor >= 1.0:
         raise OptionError(f"safety factor must be at least 1, found {safety_factor!r}",
                           fix="use 1.25 for three meshes (Celik et al. 2008)")
@@ -254,8 +385,11 @@ def _run(fine, medium, coarse, *, options, cell_sizes, safety_factor, out, overw
                 raise OptionError(f"the {name} input is a series, so the field to measure is needed", where=path,
                                   fix="give --field (and --range, --phase as for measure)")
             source.series_path, source.field = os.path.abspath(path), options.field
-        _mesh_size(source, known=sizes is not None, options=options)
+            source.options = _as_json(dataclasses.asdict(options))
         sources.append(source)
+    _check_same_options(sources)
+    for source in sources:
+        _mesh_size(source, known=sizes is not None, options=options)
     if sizes is None:
         dims = {s.dimension for s in sources}
         if len(dims) != 1:
@@ -297,6 +431,11 @@ def _run(fine, medium, coarse, *, options, cell_sizes, safety_factor, out, overw
             source.steps, source.droplets = res.steps, res.droplets
             source.time_origin = "+".join(dict.fromkeys(r.time_origin for r in res.results
                                                         if r.skipped is None and r.time_origin))
+    notes = []
+    pairing = _time_pairing_warning(sources)
+    if pairing:
+        notes.append(pairing)
+        warnings.warn(SeriesWarning(pairing, where=sources[0].path))
     tables = []
     for source in sources:
         steps = source.steps
@@ -304,8 +443,7 @@ def _run(fine, medium, coarse, *, options, cell_sizes, safety_factor, out, overw
         if len(integrals):
             steps = steps.merge(integrals.drop(columns=["time"]), on="step", how="left")
         tables.append(steps)
-    table = convergence_table(*tables, cell_sizes=sizes, safety_factor=safety_factor)
-    notes = []
+    table = convergence_table(*tables, cell_sizes=sizes, safety_factor=safety_factor, formal_order=formal_order)
     unpaired = _unpaired_warning(tables[0]["time"], paired_times(*(t["time"].to_numpy(dtype=float) for t in tables)),
                                  sources)
     if unpaired:
@@ -315,6 +453,9 @@ def _run(fine, medium, coarse, *, options, cell_sizes, safety_factor, out, overw
     if divergent:
         notes.append(divergent)
         warnings.warn(ResolutionWarning(divergent))
+    for line in _order_warnings(table, formal_order):
+        notes.append(line)
+        warnings.warn(ResolutionWarning(line))
     result = ConvergenceResult(table=table, sources=sources, safety_factor=safety_factor)
     if out is not None:
         from ._report_data import package_version
@@ -322,7 +463,8 @@ def _run(fine, medium, coarse, *, options, cell_sizes, safety_factor, out, overw
         from ..report._convergence_report import write_convergence_report
 
         write_convergence_report(out, table, sources=[s.record() for s in sources], safety_factor=safety_factor,
-                                 options=None if options is None else dataclasses.asdict(options),
+                                 formal_order=formal_order,
+                                 options=None if options is None else _as_json(dataclasses.asdict(options)),
                                  version=package_version(), started=started, notes=notes,
                                  time_origin=shared_time_origin([s.time_origin for s in sources]))
     return result
