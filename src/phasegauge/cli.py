@@ -562,16 +562,18 @@ def convergence(fine, medium, coarse, field, value_range, phase, level, velocity
     quantity at paired times), convergence.png and manifest.json into OUT.
     """
     from .run.convergence import grid_convergence_run
+    from .run.options import MeasureOptions
 
-    options = None
-    if field is not None:
-        from .run.options import MeasureOptions
-
-        options = MeasureOptions(field=field, range=value_range, phase=phase, level=level, velocity=velocity,
-                                 field_location=field_location or "auto", sort_by_time=sort_by_time,
-                                 keep_3d=keep_3d, level_set=level_set,
-                                 analyses=tuple(a.strip() for a in analyses.split(",") if a.strip()))
+    typed = {"field": field, "range": value_range, "phase": phase, "level": level, "velocity": velocity,
+             "field_location": field_location or "auto", "keep_3d": keep_3d, "level_set": level_set}
+    ctx = click.get_current_context()
+    given = [key for key, param in (("range", "value_range"), *((k, k) for k in typed if k != "range"))
+             if ctx.get_parameter_source(param) not in (None, click.core.ParameterSource.DEFAULT)]
+    measuring = MeasureOptions(**{**typed, "field": field or "c"}, sort_by_time=sort_by_time,
+                               analyses=tuple(a.strip() for a in analyses.split(",") if a.strip()))
+    options = measuring if field is not None else None
     result = grid_convergence_run(fine, medium, coarse, options=options, formal_order=formal_order,
+                                  given_options={key: getattr(measuring, key) for key in given},
                                   cell_sizes=_floats(cell_sizes, "--cell-sizes", 3), safety_factor=safety_factor,
                                   out=out, overwrite=overwrite, workers=workers, threads=threads,
                                   progress=None if not quiet else False)

@@ -329,3 +329,56 @@ def test_level_set_series_on_the_command_line_give_the_api_order(tmp_path):
     manifest = json.loads(open(os.path.join(out, "manifest.json")).read())
     assert manifest["options"]["level_set"] is True
     assert all(m["options"]["level_set"] for m in manifest["meshes"])
+
+
+def test_options_given_with_measure_folders_are_refused_unless_they_are_the_folders_own(tmp_path):
+    # three folders measured with the upper phase give p = 2 (midpoint rule of x^2, analytic; see _series);
+    # --phase lower or --level-set typed with them used to be ignored without a word (exit 0, the upper phase's
+    # figures) while the manifest recorded the typed phase
+    paths = _three(tmp_path)
+    same = dict(field="c", analyses=("conservation",))
+    folders = [str(f) for f in _folders(tmp_path, paths, lambda k: MeasureOptions(**same))]
+    runner = CliRunner()
+    lower = runner.invoke(main, ["convergence", *folders, "--field", "c", "--phase", "lower", "-o",
+                                 str(tmp_path / "lower"), "-q"])
+    assert lower.exit_code == 2
+    assert ("--phase lower was given, but the fine, medium and coarse runs (measure folders) were measured with "
+            "--phase upper" in lower.output and "or leave --phase out" in lower.output)
+    level_set = runner.invoke(main, ["convergence", *folders, "--level-set", "-o", str(tmp_path / "ls"), "-q"])
+    assert level_set.exit_code == 2 and "--level-set was given, but" in level_set.output
+    with pytest.raises(OptionError, match="--phase lower was given"):  # the API alike: options off their defaults
+        grid_convergence_run(*folders, options=MeasureOptions(field="c", phase="lower"))
+    # the folders' own options typed again are accepted; the manifest records what the figures were measured with
+    again = runner.invoke(main, ["convergence", *folders, "--phase", "upper", "--field-location", "cell", "-o",
+                                 str(tmp_path / "upper"), "-q"])
+    assert again.exit_code == 0, again.output
+    manifest = json.loads((tmp_path / "upper" / "manifest.json").read_text())
+    assert manifest["options"]["phase"] == "upper" and manifest["options"]["analyses"] == ["conservation"]
+    table = pd.read_csv(tmp_path / "upper" / "convergence.csv")
+    assert table[table["quantity"] == "phase_volume"]["apparent_order"].to_numpy() == pytest.approx(2.0, rel=1e-6)
+
+
+def test_options_are_compared_as_what_they_measured(tmp_path):
+    # c is written on cells only: --field-location cell reads what 'auto' reads (identical steps.csv), and
+    # periodic axes y,x are the axes x,y; both were refused as different options. Measured alike: p = 2 (analytic)
+    paths = _three(tmp_path)
+    same = dict(field="c", analyses=("conservation",))
+    cell = _folders(tmp_path / "cell", paths, lambda k: MeasureOptions(**same, field_location="cell" if k == 2
+                                                                       else "auto"))
+    result = grid_convergence_run(*cell)
+    rows = result.table[result.table["quantity"] == "phase_volume"]
+    assert rows["apparent_order"].to_numpy() == pytest.approx(2.0, rel=1e-6)
+    assert pd.read_csv(cell[2] / "steps.csv").equals(
+        pd.read_csv(_folders(tmp_path / "auto", paths[2:], lambda k: MeasureOptions(**same))[0] / "steps.csv"))
+    # a series measured here with 'auto' against a folder measured with 'cell': both read the cells
+    grid_convergence_run(paths[0], paths[1], cell[2], options=MeasureOptions(**same))
+    axes = _folders(tmp_path / "axes", paths, lambda k: MeasureOptions(**same, periodic=("y", "x") if k == 2
+                                                                       else ("x", "y")))
+    grid_convergence_run(*axes)
+    # a location truly different is still refused: the fine folder's record says its 'auto' read points
+    manifest = json.loads((cell[0] / "manifest.json").read_text())
+    manifest["series"]["field_read"] = "'c': point data"
+    (cell[0] / "manifest.json").write_text(json.dumps(manifest))
+    with pytest.raises(OptionError, match=r"different --field-location: point \(fine\) against cell \(medium, "
+                                          r"coarse\)"):
+        grid_convergence_run(*cell)

@@ -29,6 +29,9 @@ MESH_NAMES = ("fine", "medium", "coarse")
 MEASURING_OPTIONS = ("field", "range", "phase", "level", "level_set", "field_location", "interface_kind", "box",
                      "periodic", "keep_3d", "adjacency")
 
+#: options given with measure folders that are compared with the folders' own (they cannot apply to a folder)
+FOLDER_CHECKED_OPTIONS = MEASURING_OPTIONS + ("velocity",)
+
 
 @dataclass
 class ConvergenceSource:
@@ -50,6 +53,7 @@ class ConvergenceSource:
     depth: float = 0.0  # of a mesh one cell thick measured as 2D
     time_origin: str = ""  # where the run's times came from ('index': it stores none, its times are step numbers)
     options: dict = dataclasses.field(default_factory=dict)  # the measure options it was measured with (JSON)
+    location_read: str = ""  # where its field was read from ('cell' or 'point'; "" where not recorded)
 
     def record(self) -> dict:
         """The source as the manifest keeps it."""
@@ -111,6 +115,7 @@ def _read_folder(source: ConvergenceSource) -> None:
     source.series_path = str((manifest.get("series") or {}).get("path", ""))
     source.time_origin = str((manifest.get("series") or {}).get("time_origin", ""))
     source.options = dict(manifest.get("options") or {})
+    source.location_read = _location_read((manifest.get("series") or {}).get("field_read"))
     source.field = str((manifest.get("options") or {}).get("field", ""))
     source.keep_3d = bool((manifest.get("options") or {}).get("keep_3d", False))
     try:
@@ -205,17 +210,41 @@ def _option_words(value) -> str:
     return f"{value:g}" if isinstance(value, float) else str(value)
 
 
+def _location_read(field_read) -> str:
+    """Where a run read its field, from its manifest's ``field_read`` line ("" when not recorded)."""
+    import re
+
+    found = re.search(r"': (cell|point) data", str(field_read or ""))
+    return found.group(1) if found else ""
+
+
+def _measured_words(key, value, location_read: str = ""):
+    """An option's value as what it measured, in words; None where it matches any (``auto`` read where unknown).
+
+    Periodic axes are a set; the field location ``auto`` is the location the field was read from.
+    """
+    value = _as_json(value)
+    if key == "periodic" and isinstance(value, list):
+        value = sorted(str(v) for v in value)
+    if key == "field_location" and value in (None, "auto"):
+        return location_read or None
+    return _option_words(value)
+
+
 def _check_same_options(sources) -> None:
     """Refuse runs measured with different options that change the figures (:data:`MEASURING_OPTIONS`).
 
-    A run whose manifest lacks an option (an older measure run) is not compared on it.
+    What was measured is compared: periodic axes as a set, the field location as the location read
+    (``auto`` where that is not known yet matches either). A run whose manifest lacks an option (an
+    older measure run) is not compared on it.
     """
     for key in MEASURING_OPTIONS:
         groups = {}
         for source in sources:
             if key in source.options:
-                value = source.options[key]
-                groups.setdefault(_option_words(value), []).append(source)
+                words = _measured_words(key, source.options[key], source.location_read)
+                if words is not None:
+                    groups.setdefault(words, []).append(source)
         if len(groups) > 1:
             (first, runs), (second, others) = list(groups.items())[:2]
             names = [", ".join(s.name for s in group) for group in (runs, others)]
@@ -225,6 +254,46 @@ def _check_same_options(sources) -> None:
                               where=others[0].path,
                               fix="measure the runs with the same options (or give the three series with the "
                                   "options once)")
+
+
+def _given_options(options, given_options) -> dict:
+    """The measuring options given explicitly: ``given_options``, else those of ``options`` off their defaults."""
+    if given_options is not None:
+        return {k: v for k, v in dict(given_options).items() if k in FOLDER_CHECKED_OPTIONS}
+    if options is None:
+        return {}
+    defaults = type(options)(field=options.field)
+    return {k: getattr(options, k) for k in FOLDER_CHECKED_OPTIONS
+            if hasattr(options, k) and _as_json(getattr(options, k)) != _as_json(getattr(defaults, k))}
+
+
+def _check_given_options(sources, given: dict) -> None:
+    """Refuse measuring options given with measure folders measured otherwise: they cannot apply to a folder."""
+    folders = [s for s in sources if s.kind == "measure folder"]
+    for key, value in given.items():
+        flag = "--" + key.replace("_", "-")
+        odd = [s for s in folders if key in s.options
+               and _measured_words(key, value) is not None
+               and _measured_words(key, s.options[key], s.location_read) not in (None, _measured_words(key, value))]
+        if odd:
+            own, typed = _measured_words(key, odd[0].options[key], odd[0].location_read), _measured_words(key, value)
+            names = ", ".join(s.name for s in odd[:-1]) + (" and " if len(odd) > 1 else "") + odd[-1].name
+            one = len(odd) == 1
+            if isinstance(value, bool):
+                given_words, own_words = flag if value else f"no {flag}", f"with{'' if own == 'on' else 'out'} it"
+            else:
+                given_words, own_words = f"{flag} {typed}", f"with {flag} {own}"
+            raise OptionError(f"{given_words} was given, but the {names} run{'' if one else 's'} "
+                              f"(measure folder{'' if one else 's'}) {'was' if one else 'were'} measured {own_words}: "
+                              "a folder's figures are not measured again", where=odd[0].path,
+                              fix=f"measure {'it' if one else 'them'} again with {given_words} (or give "
+                                  f"{'its series' if one else 'their series'}), or leave {flag} out")
+
+
+def _measured_with(sources):
+    """The options the figures were measured with: a series' (measured here), else the fine folder's."""
+    measured = [s for s in sources if s.kind == "series"] or [s for s in sources if s.options]
+    return measured[0].options if measured else None
 
 
 def _numbered(source) -> bool:
@@ -298,9 +367,10 @@ def _order_warnings(table, formal_order) -> list:
     return lines
 
 
-def grid_convergence_run(fine, medium, coarse, *, options=None, cell_sizes=None, safety_factor: float = 1.25,
-                         formal_order=None, out=None, overwrite: bool = False, workers: int = 1,
-                         threads: int | None = None, progress: bool | None = False) -> ConvergenceResult:
+def grid_convergence_run(fine, medium, coarse, *, options=None, given_options=None, cell_sizes=None,
+                         safety_factor: float = 1.25, formal_order=None, out=None, overwrite: bool = False,
+                         workers: int = 1, threads: int | None = None,
+                         progress: bool | None = False) -> ConvergenceResult:
     """Grid convergence of every per-step quantity of one case run on three meshes.
 
     Parameters
@@ -309,6 +379,10 @@ def grid_convergence_run(fine, medium, coarse, *, options=None, cell_sizes=None,
         Each a series or the output folder of a finished measure run, finest mesh first.
     options : MeasureOptions, optional
         How to measure the inputs that are series (needed when one is).
+    given_options : dict, optional
+        The measuring options given explicitly, by name (as on the command line): each is compared
+        with every measure folder's own and refused where it differs, since a folder is not measured
+        again. Default: the options of ``options`` that differ from their defaults.
     cell_sizes : sequence of 3 floats, optional
         Representative cell sizes h_fine < h_medium < h_coarse, in mesh length units.
         Default: (total measure / number of cells)^(1/dimension) of each first step's mesh.
@@ -335,7 +409,8 @@ def grid_convergence_run(fine, medium, coarse, *, options=None, cell_sizes=None,
     Raises
     ------
     OptionError
-        Runs measured with different options that change the figures (:data:`MEASURING_OPTIONS`).
+        Runs measured with different options that change the figures (:data:`MEASURING_OPTIONS`),
+        or options given that differ from a measure folder's own.
     InputError
         Runs some of which store times and some not (steps would pair with times).
 
@@ -346,13 +421,14 @@ def grid_convergence_run(fine, medium, coarse, *, options=None, cell_sizes=None,
     from ..report._files import output_transaction
 
     with output_transaction(out):
-        return _run(fine, medium, coarse, options=options, cell_sizes=cell_sizes, safety_factor=safety_factor,
+        return _run(fine, medium, coarse, options=options, given=_given_options(options, given_options),
+                    cell_sizes=cell_sizes, safety_factor=safety_factor,
                     formal_order=formal_order, out=out, overwrite=overwrite, workers=workers, threads=threads,
                     progress=progress)
 
 
-def _run(fine, medium, coarse, *, options, cell_sizes, safety_factor, formal_order, out, overwrite, workers, threads,
-         progress):
+def _run(fine, medium, coarse, *, options, given, cell_sizes, safety_factor, formal_order, out, overwrite, workers,
+         threads, progress):
     from ..analysis.convergence import (check_formal_order, convergence_table, droplet_integrals, paired_times,
                                         representative_cell_size)
     from .options import check_workers
@@ -388,6 +464,7 @@ def _run(fine, medium, coarse, *, options, cell_sizes, safety_factor, formal_ord
             source.options = _as_json(dataclasses.asdict(options))
         sources.append(source)
     _check_same_options(sources)
+    _check_given_options(sources, given)
     for source in sources:
         _mesh_size(source, known=sizes is not None, options=options)
     if sizes is None:
@@ -431,6 +508,9 @@ def _run(fine, medium, coarse, *, options, cell_sizes, safety_factor, formal_ord
             source.steps, source.droplets = res.steps, res.droplets
             source.time_origin = "+".join(dict.fromkeys(r.time_origin for r in res.results
                                                         if r.skipped is None and r.time_origin))
+            source.location_read = next((_location_read(r.field_source) for r in res.results
+                                         if r.skipped is None and getattr(r, "field_source", "")), "")
+    _check_same_options(sources)  # again, with the field location the series were read from
     notes = []
     pairing = _time_pairing_warning(sources)
     if pairing:
@@ -464,7 +544,7 @@ def _run(fine, medium, coarse, *, options, cell_sizes, safety_factor, formal_ord
 
         write_convergence_report(out, table, sources=[s.record() for s in sources], safety_factor=safety_factor,
                                  formal_order=formal_order,
-                                 options=None if options is None else _as_json(dataclasses.asdict(options)),
+                                 options=_measured_with(sources),
                                  version=package_version(), started=started, notes=notes,
                                  time_origin=shared_time_origin([s.time_origin for s in sources]))
     return result
