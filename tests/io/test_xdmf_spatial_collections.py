@@ -12,6 +12,7 @@ mesh built by numpy.
 """
 
 import contextlib
+import pathlib
 import warnings
 
 import h5py
@@ -360,3 +361,56 @@ def test_tetrahedra_cut_by_a_jagged_partition_read_as_written_whole(tmp_path):
     integrated = joined.integrate_data()
     assert float(integrated["Volume"][0]) == pytest.approx(8 * H * 4 * H * 4 * H, rel=1e-12)  # analytic: the box
     assert result.steps["phase_volume"].iloc[0] == pytest.approx(float(integrated.point_data["c"][0]), rel=1e-12)
+
+
+def _reusing(path, form):
+    """The file of write_pieces with steps 1 and 2 taking each piece's Topology and Geometry from step 0's piece
+    of that name, as a static mesh written once: by an xi:include of them (the XPointer form of meshio's series
+    writer) or by DataItems given as Reference="XML" paths (XDMF Model and Format, "DataItem ... Reference")."""
+    import re
+
+    text = path.read_text().replace('<Xdmf Version="3.0">',
+                                    '<Xdmf Version="3.0" xmlns:xi="http://www.w3.org/2001/XInclude">')
+    steps = text.split('<Grid Name="step')
+    for k in range(2, len(steps)):
+        if form == "include":
+            steps[k] = re.sub(r'(<Grid Name="(p\d)" GridType="Uniform">)<Topology.*?</Geometry>',
+                              lambda m: f'{m.group(1)}<xi:include xpointer="xpointer(//Grid[@Name=&quot;'
+                                        f'step0&quot;]/Grid[@Name=&quot;{m.group(2)}&quot;]/*[self::Topology or '
+                                        f'self::Geometry])"/>', steps[k])
+        else:
+            for part in ("Topology", "Geometry"):
+                written = r'(<Grid Name="(p\d)" GridType="Uniform">.*?<%s[^>]*>)<DataItem[^<]*</DataItem>' % part
+                steps[k] = re.sub(written,
+                                  lambda m: f'{m.group(1)}<DataItem Reference="XML">/Xdmf/Domain/Grid/Grid[@Name='
+                                            f'"step0"]/Grid[@Name="{m.group(2)}"]/{part}/DataItem</DataItem>', steps[k])
+    path.write_text('<Grid Name="step'.join(steps))
+    return str(path)
+
+
+@pytest.mark.parametrize("form", ["include", "reference"])
+def test_pieces_taking_the_first_steps_mesh_read_as_written_whole(tmp_path, form):
+    # every step after the first was skipped as "every piece of the spatial collection holds no cells" (include)
+    # or failed to read (reference); the same reuse in a Uniform series read fine. Reference: the same mesh and
+    # fields as one Uniform grid a step by meshio's time-series writer
+    path = _reusing(pathlib.Path(write_pieces(tmp_path / "pieces.xdmf", SHAPE_3D, 2)), form)
+    assert path and ("xi:include" in open(path).read()) == (form == "include")
+    whole, _ = _measured(write_uniform(tmp_path / "whole.xdmf", SHAPE_3D))
+    result, said = _measured(path)
+    assert not said
+    assert result.steps["time"].tolist() == list(TIMES)
+    for column in whole.steps.columns:  # our threshold: equal to round-off
+        np.testing.assert_allclose(result.steps[column], whole.steps[column], rtol=1e-12, atol=1e-15)
+    mesh, fields, _ = _mesh(path, step=2)
+    assert (mesh.n_cells, mesh.n_points) == (2000, 2541) and set(fields.point_data) == {"c"}
+
+
+def test_a_piece_taking_its_mesh_from_nowhere_is_named(tmp_path):
+    path = pathlib.Path(_reusing(pathlib.Path(write_pieces(tmp_path / "pieces.xdmf", SHAPE_3D, 2)), "include"))
+    path.write_text(path.read_text().replace("Name=&quot;p1&quot;]/*", "Name=&quot;q1&quot;]/*"))
+    with phasegauge.open_series(str(path)) as series:
+        assert series.read(0).mesh.n_cells == 2000
+        with pytest.raises(UnsupportedMeshError, match=r"pieces.xdmf, step 1, piece p1: the xi:include xpointer "
+                                                       r"'.//Grid\[@Name=\"step0\"\]/Grid\[@Name=\"q1\"\]' finds "
+                                                       r"nothing in the file"):
+            series.read(1)

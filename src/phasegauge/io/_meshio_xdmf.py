@@ -157,7 +157,7 @@ def _piece_labels(pieces: list) -> list:
 
 def _holds_nothing(piece) -> bool:
     """True for a piece of 0 points or 0 cells as its DataItems' ``Dimensions`` say (a process that owns no
-    cells), or one without a Topology or Geometry."""
+    cells), or one without a Topology or Geometry (after :func:`_mesh_resolved`)."""
     parts = [node for node in piece if node.tag in ("Topology", "Geometry")]
     if len(parts) < 2:
         return True
@@ -168,11 +168,84 @@ def _holds_nothing(piece) -> bool:
     return False
 
 
+_XINCLUDE = "{http://www.w3.org/2001/XInclude}include"
+_REUSE_FIX = ("write the piece's Topology and Geometry in it, or take them from a grid of this file by an "
+              "xi:include xpointer or a DataItem Reference=\"XML\" path that finds them")
+
+
+def _found(domain, path: str, at: str, what: str) -> list:
+    """The elements an XPath of the XDMF file finds (``//Grid[@Name='a']/Grid[1]``, ``/Xdmf/Domain/Grid/...``),
+    searched from the Domain as ElementTree's paths read them."""
+    path = path.strip()
+    if path.startswith("/Xdmf/Domain/"):
+        path = "./" + path[len("/Xdmf/Domain/"):]
+    elif path.startswith("//"):
+        path = "." + path
+    try:
+        found = domain.findall(path) if path else []
+    except (SyntaxError, KeyError, TypeError) as exc:
+        raise UnsupportedMeshError(f"{what} {path!r} is not a path that is read ({short_text(exc)})", where=at,
+                                   fix=_REUSE_FIX) from None
+    if not found:
+        raise UnsupportedMeshError(f"{what} {path!r} finds nothing in the file", where=at, fix=_REUSE_FIX)
+    return found
+
+
+def _included(node, domain, at: str) -> list:
+    """The elements an ``xi:include`` of the piece's mesh stands for (the form meshio's series writer uses,
+    ``xpointer(//Grid[...]/*[self::Topology or self::Geometry])``)."""
+    import re
+
+    if node.get("href"):
+        raise UnsupportedMeshError(f"the piece includes its mesh from another file ({node.get('href')})", where=at,
+                                   fix=_REUSE_FIX)
+    pointer = (node.get("xpointer") or "").strip()
+    inner = re.fullmatch(r"xpointer\((.*)\)", pointer, flags=re.S)
+    expression = inner.group(1) if inner else pointer
+    head, _, last = expression.rpartition("/")
+    if last.startswith("*"):
+        tags = re.findall(r"self::(\w+)", last)
+        grids = _found(domain, head, at, "the xi:include xpointer")
+        return [child for grid in grids for child in grid if child.tag != "Time" and (not tags or child.tag in tags)]
+    return _found(domain, expression, at, "the xi:include xpointer")
+
+
+def _mesh_resolved(piece, domain, at: str):
+    """The piece with the Topology and Geometry it takes from another grid written in (a copy; the piece
+    itself where it takes none): an ``xi:include`` of them, or their DataItems given as
+    ``Reference="XML"`` paths. A static mesh's later steps take the first step's so."""
+    import copy
+
+    def referred(item):
+        if item.tag != "DataItem" or (item.get("Reference") or "").upper() != "XML":
+            return item
+        return _found(domain, item.text or "", at, "the DataItem Reference")[0]
+
+    if not any(n.tag == _XINCLUDE or n.tag in ("Topology", "Geometry") and any(referred(i) is not i for i in n)
+               for n in piece):
+        return piece
+    resolved = copy.copy(piece)  # the file's own XML unchanged
+    children = []
+    for node in piece:
+        if node.tag == _XINCLUDE:
+            children.extend(_included(node, domain, at))
+        elif node.tag in ("Topology", "Geometry"):
+            part = copy.copy(node)
+            part[:] = [referred(item) for item in node]
+            children.append(part)
+        else:
+            children.append(node)
+    resolved[:] = children
+    return resolved
+
+
 def read_pieces(reader, collection, path: str, where: str):
     """One step written as a spatial collection of Uniform grids, read as one meshio mesh.
 
     Each piece's points, cells and fields are read by meshio's ``TimeSeriesReader`` (its mesh grid and
-    its step set to the piece), its ``BaseOffset`` applied; pieces holding nothing (a process that owns
+    its step set to the piece), its ``BaseOffset`` applied; a Topology and Geometry taken from another grid
+    (``xi:include``, ``Reference="XML"``: a static mesh written once) are read from there
+    (:func:`_mesh_resolved`); pieces holding nothing (a process that owns
     no cells) are left out, and so are pieces whose cells are all of a lower dimension than another's
     (boundary patches, named in a note). The pieces are joined as the pieces of a ``.pvtu`` step are
     (:func:`._multiblock.join_pieces`: the points of a seam made equal, a field kept when every piece holds
@@ -183,7 +256,8 @@ def read_pieces(reader, collection, path: str, where: str):
     UnreadableFileError
         Every piece holds nothing, or meshio cannot read a piece (named).
     UnsupportedMeshError
-        A piece's form is not read (:func:`._xdmf_forms.form_problem`).
+        A piece's form is not read (:func:`._xdmf_forms.form_problem`), or the mesh it takes from
+        another grid is not found.
     """
     import copy
 
@@ -193,6 +267,7 @@ def read_pieces(reader, collection, path: str, where: str):
 
     grids = [g for g in collection if g.tag == "Grid"]
     labels = _piece_labels(grids)
+    grids = [_mesh_resolved(g, reader.domain, f"{where}, piece {label}") for label, g in zip(labels, grids)]
     kept = [(label, g) for label, g in zip(labels, grids) if not _holds_nothing(g)]
     if not kept:
         raise UnreadableFileError(f"every piece of the spatial collection holds no cells ({len(grids)} pieces)",
