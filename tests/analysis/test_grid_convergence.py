@@ -172,3 +172,23 @@ def test_oscillatory_divergence_is_flagged_both_ways():
     out = grid_convergence(1.0, 0.95, 1.05, cell_sizes=(1.0, 1.5, 2.25))
     assert out["oscillatory"] and not out["divergent"]
     assert out["apparent_order"] == pytest.approx(np.log(2.0) / np.log(1.5), rel=1e-9)
+
+
+def test_agreeing_rows_take_the_quantitys_scale():
+    import pandas as pd
+
+    from phasegauge.analysis.convergence import AGREEMENT_SHARE, agreeing_rows
+
+    # the review's conserved drop volume (0.401379941, 0.40137992, 0.401378988: spread 9.5e-7, 2.4e-6 of it)
+    # agrees; Slater's values (0.9705, 0.96854, 0.96178; NASA GRC worked example) do not; a drift of 5e-6 is
+    # a fraction (scale 1) and agrees; a length of 1e-6 on a column reaching 0.3 agrees, one of 0.1 does not
+    table = pd.DataFrame({
+        "quantity": ["phase_volume", "pressure_drop", "phase_volume_drift", "widest_x", "widest_x"],
+        "time": [0.0, 0.0, 0.0, 0.0, 1.0],
+        "value_fine": [0.401379941, 0.9705, 6.0e-7, 0.3, 0.3],
+        "value_medium": [0.40137992, 0.96854, 6.2e-7, 0.300001, 0.2],
+        "value_coarse": [0.401378988, 0.96178, 5.4e-6, 0.299999, 0.1]})
+    assert agreeing_rows(table).tolist() == [True, False, True, True, False]
+    assert AGREEMENT_SHARE == 1e-4  # our threshold
+    assert not agreeing_rows(table, share=1e-7).any()
+    assert agreeing_rows(table.iloc[:0]).tolist() == []

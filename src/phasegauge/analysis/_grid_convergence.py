@@ -25,7 +25,7 @@ from ..errors import OptionError
 __all__ = ["representative_cell_size", "grid_convergence", "convergence_table", "droplet_integrals", "paired_times",
            "span_reach", "covered_span", "SPAN_REACH_SHARE", "GCI_SAFETY_FACTOR", "CONVERGENCE_FIELDS",
            "CONVERGENCE_COLUMNS", "check_formal_order", "implausible_order_limit", "HIGHEST_PLAUSIBLE_ORDER",
-           "FORMAL_ORDER_TOLERANCE"]
+           "FORMAL_ORDER_TOLERANCE", "AGREEMENT_SHARE", "agreeing_rows"]
 
 #: safety factor of the fine-grid GCI for three meshes (Roache 1998; Celik et al. 2008)
 GCI_SAFETY_FACTOR = 1.25
@@ -95,6 +95,39 @@ HIGHEST_PLAUSIBLE_ORDER = 5.0
 
 #: an apparent order more than this away from the formal order is outside the asymptotic range (our threshold)
 FORMAL_ORDER_TOLERANCE = 0.5
+
+
+#: three meshes whose values differ by no more than this share of the quantity's scale agree beyond what an
+#: apparent order resolves (a conserved volume the same to 6 digits): no order is warned of there (our threshold)
+AGREEMENT_SHARE = 1e-4
+
+
+def agreeing_rows(table, share: float = AGREEMENT_SHARE):
+    """Which rows of a convergence table have three meshes that agree within ``share`` of the quantity's scale.
+
+    The scale is that of the round-off test: 1 for fractions and indices (:data:`UNIT_SCALE`), the other
+    column's for :data:`SCALE_OF`, else the largest magnitude the quantity takes on the three meshes at
+    any paired time. Their apparent order measures how the last digits were sampled, not the scheme.
+
+    Parameters
+    ----------
+    table : DataFrame
+        A :func:`convergence_table`.
+    share : float
+
+    Returns
+    -------
+    ndarray of bool, shape (len(table),)
+    """
+    values = table[["value_fine", "value_medium", "value_coarse"]].to_numpy(dtype=float)
+    if not len(values):
+        return np.zeros(0, dtype=bool)
+    quantity = table["quantity"].to_numpy()
+    largest = {q: float(np.nanmax(np.abs(values[quantity == q]), initial=0.0)) for q in set(quantity)}
+    scale = np.array([max(largest[q], 1.0 if q in UNIT_SCALE else largest.get(SCALE_OF.get(q), 0.0))
+                      for q in quantity])
+    spread = np.nanmax(values, axis=1) - np.nanmin(values, axis=1)
+    return np.isfinite(spread) & (spread <= share * scale)
 
 
 def check_formal_order(formal_order):

@@ -336,18 +336,31 @@ def _quantities_words(rows, shown: int = 2) -> str:
     return ", ".join(named[:shown]) + (f" and {more} more quantit{'y' if more == 1 else 'ies'}" if more > 0 else "")
 
 
+def _agreeing_words(left_out, share) -> str:
+    """The rows of implausible order left out of the warning as agreeing meshes, in words ("" for none)."""
+    count = int(left_out.sum())
+    return (f" ({count} more row{'' if count == 1 else 's'} whose three meshes agree within {share:g} of the "
+            "quantity's scale, our threshold, left out)") if count else ""
+
+
 def _order_warnings(table, formal_order) -> list:
     """One line for apparent orders above the plausible limit (the coarse value off the trend), one for
-    orders more than :data:`FORMAL_ORDER_TOLERANCE` from the formal order (none, or one each)."""
+    orders more than :data:`FORMAL_ORDER_TOLERANCE` from the formal order (none, or one each).
+
+    Rows whose three meshes agree within
+    :data:`~phasegauge.analysis.convergence.AGREEMENT_SHARE` of the quantity's scale are left out
+    of both (:func:`~phasegauge.analysis.convergence.agreeing_rows`).
+    """
     import numpy as np
 
-    from ..analysis.convergence import FORMAL_ORDER_TOLERANCE, implausible_order_limit
+    from ..analysis.convergence import AGREEMENT_SHARE, FORMAL_ORDER_TOLERANCE, agreeing_rows, implausible_order_limit
 
     if not len(table):
         return []
     order = table["apparent_order"].to_numpy(dtype=float)
     limit = implausible_order_limit(formal_order)
-    high = np.isfinite(order) & (order > limit)
+    agree = agreeing_rows(table)  # the three meshes agree beyond what an order resolves: none is warned of
+    high = np.isfinite(order) & (order > limit) & ~agree
     lines = []
     if high.any():
         row = table[high].loc[table[high]["apparent_order"].idxmax()]
@@ -356,9 +369,10 @@ def _order_warnings(table, formal_order) -> list:
                      f"{row['apparent_order']:.3g}: {row['quantity']} at t = {row['time']:g}, coarse "
                      f"{row['value_coarse']:.4g} against medium {row['value_medium']:.4g} and fine "
                      f"{row['value_fine']:.4g}): the coarse value lies off the trend of the other two (outside the "
-                     "asymptotic range, or not one case measured alike); add a finer mesh, or check the coarse run")
+                     "asymptotic range, or not one case measured alike); add a finer mesh, or check the coarse run"
+                     + _agreeing_words(agree & np.isfinite(order) & (order > limit), AGREEMENT_SHARE))
     if formal_order is not None:
-        off = np.isfinite(order) & ~high & (np.abs(order - formal_order) > FORMAL_ORDER_TOLERANCE)
+        off = np.isfinite(order) & ~high & ~agree & (np.abs(order - formal_order) > FORMAL_ORDER_TOLERANCE)
         if off.any():
             lines.append(f"apparent order more than {FORMAL_ORDER_TOLERANCE:g} (our threshold) from the formal order "
                          f"{formal_order:g} for {_quantities_words(table[off], 1)} (p {order[off].min():.3g} to "
