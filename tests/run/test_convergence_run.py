@@ -361,7 +361,8 @@ def test_options_given_with_measure_folders_are_refused_unless_they_are_the_fold
 
 def test_options_are_compared_as_what_they_measured(tmp_path):
     # c is written on cells only: --field-location cell reads what 'auto' reads (identical steps.csv), and
-    # periodic axes y,x are the axes x,y; both were refused as different options. Measured alike: p = 2 (analytic)
+    # periodic axes y,x are the axes x,y; --keep-3d on a 2D mesh keeps nothing: all were refused as different
+    # options. Measured alike: p = 2 (midpoint rule of x^2, analytic)
     paths = _three(tmp_path)
     same = dict(field="c", analyses=("conservation",))
     cell = _folders(tmp_path / "cell", paths, lambda k: MeasureOptions(**same, field_location="cell" if k == 2
@@ -376,6 +377,14 @@ def test_options_are_compared_as_what_they_measured(tmp_path):
     axes = _folders(tmp_path / "axes", paths, lambda k: MeasureOptions(**same, periodic=("y", "x") if k == 2
                                                                        else ("x", "y")))
     grid_convergence_run(*axes)
+    # --keep-3d changes nothing on a 2D mesh: accepted, p = 2; on slabs one cell thick it does: refused
+    kept = _folders(tmp_path / "kept", paths, lambda k: MeasureOptions(**same, keep_3d=k == 2))
+    rows = grid_convergence_run(*kept).table
+    assert rows[rows["quantity"] == "phase_volume"]["apparent_order"].to_numpy() == pytest.approx(2.0, rel=1e-6)
+    slabs = [_series(str(tmp_path / f"slab{n}"), n, [0.0, 0.2], depth=0.01) for n in CELLS]
+    thin = _folders(tmp_path / "thin", slabs, lambda k: MeasureOptions(**same, keep_3d=k == 2))
+    with pytest.raises(OptionError, match=r"different --keep-3d: off \(fine, medium\) against on \(coarse\)"):
+        grid_convergence_run(*thin)
     # a location truly different is still refused: the fine folder's record says its 'auto' read points
     manifest = json.loads((cell[0] / "manifest.json").read_text())
     manifest["series"]["field_read"] = "'c': point data"

@@ -49,6 +49,7 @@ class ConvergenceSource:
     cell_size: float = float("nan")
     field: str = ""
     recorded_dimension: int = 0  # a measure folder's: the dimension its steps were measured in
+    recorded_depth: float = 0.0  # the depth of a mesh one cell thick its steps were measured on as 2D
     keep_3d: bool = False  # a measure folder's option
     depth: float = 0.0  # of a mesh one cell thick measured as 2D
     time_origin: str = ""  # where the run's times came from ('index': it stores none, its times are step numbers)
@@ -120,6 +121,7 @@ def _read_folder(source: ConvergenceSource) -> None:
     source.keep_3d = bool((manifest.get("options") or {}).get("keep_3d", False))
     try:
         source.recorded_dimension = int((manifest.get("series") or {}).get("dimension", 0))
+        source.recorded_depth = float((manifest.get("series") or {}).get("depth", 0.0))
     except (TypeError, ValueError):
         source.recorded_dimension = 0
 
@@ -218,16 +220,23 @@ def _location_read(field_read) -> str:
     return found.group(1) if found else ""
 
 
-def _measured_words(key, value, location_read: str = ""):
-    """An option's value as what it measured, in words; None where it matches any (``auto`` read where unknown).
+def _measured_words(key, value, source=None):
+    """An option's value as what it measured, in words; None where it matches any.
 
-    Periodic axes are a set; the field location ``auto`` is the location the field was read from.
+    Periodic axes are a set; the field location ``auto`` is the location ``source`` read the field
+    from (None where unknown); ``keep_3d`` off on a mesh ``source`` measured in 3D, or on a 2D mesh,
+    changed nothing (a mesh one cell thick measured as 2D records its depth) and matches any.
     """
     value = _as_json(value)
     if key == "periodic" and isinstance(value, list):
         value = sorted(str(v) for v in value)
     if key == "field_location" and value in (None, "auto"):
-        return location_read or None
+        return (source.location_read or None) if source is not None else None
+    if key == "keep_3d" and source is not None and source.recorded_dimension in (2, 3):
+        if source.recorded_dimension == 2 and not source.recorded_depth:
+            return None  # a 2D mesh: keep_3d has nothing to keep
+        if source.recorded_dimension == 3 and not value:
+            return None  # measured in 3D without it: not a mesh one cell thick
     return _option_words(value)
 
 
@@ -235,14 +244,14 @@ def _check_same_options(sources) -> None:
     """Refuse runs measured with different options that change the figures (:data:`MEASURING_OPTIONS`).
 
     What was measured is compared: periodic axes as a set, the field location as the location read
-    (``auto`` where that is not known yet matches either). A run whose manifest lacks an option (an
-    older measure run) is not compared on it.
+    (``auto`` where that is not known yet matches either), ``keep_3d`` only where the mesh is one cell
+    thick. A run whose manifest lacks an option (an older measure run) is not compared on it.
     """
     for key in MEASURING_OPTIONS:
         groups = {}
         for source in sources:
             if key in source.options:
-                words = _measured_words(key, source.options[key], source.location_read)
+                words = _measured_words(key, source.options[key], source)
                 if words is not None:
                     groups.setdefault(words, []).append(source)
         if len(groups) > 1:
@@ -274,9 +283,9 @@ def _check_given_options(sources, given: dict) -> None:
         flag = "--" + key.replace("_", "-")
         odd = [s for s in folders if key in s.options
                and _measured_words(key, value) is not None
-               and _measured_words(key, s.options[key], s.location_read) not in (None, _measured_words(key, value))]
+               and _measured_words(key, s.options[key], s) not in (None, _measured_words(key, value))]
         if odd:
-            own, typed = _measured_words(key, odd[0].options[key], odd[0].location_read), _measured_words(key, value)
+            own, typed = _measured_words(key, odd[0].options[key], odd[0]), _measured_words(key, value)
             names = ", ".join(s.name for s in odd[:-1]) + (" and " if len(odd) > 1 else "") + odd[-1].name
             one = len(odd) == 1
             if isinstance(value, bool):
@@ -522,8 +531,12 @@ def _run(fine, medium, coarse, *, options, given, cell_sizes, safety_factor, for
             source.steps, source.droplets = res.steps, res.droplets
             source.time_origin = "+".join(dict.fromkeys(r.time_origin for r in res.results
                                                         if r.skipped is None and r.time_origin))
-            source.location_read = next((_location_read(r.field_source) for r in res.results
-                                         if r.skipped is None and getattr(r, "field_source", "")), "")
+            done = [r for r in res.results if r.skipped is None]
+            source.location_read = next((_location_read(r.field_source) for r in done
+                                         if getattr(r, "field_source", "")), "")
+            source.recorded_dimension = int(getattr(done[0], "dimension", 0) or 0) if done else 0
+            source.recorded_depth = float(next((r.metrics["depth"] for r in done if "depth" in (r.metrics or {})),
+                                               0.0))
     _check_same_options(sources)  # again, with the field location the series were read from
     notes = []
     pairing = _time_pairing_warning(sources)
