@@ -384,7 +384,9 @@ def interface_metrics(mesh: Mesh, indicator, *, level: float = 0.5, contour: Con
     every face is flat (its corners spanning a volume below 1e-10 of its
     diagonal cubed) and cut alike from both
     sides (no looser flatness, so no added error).
-    Cells whose corners all lie within 1e-6 of 0 or of 1 are skipped; the
+    Cells whose corners all lie within 1e-6 of 0 or of 1 are skipped (with bulk
+    values off 0 and 1, within :func:`bulk_plateaus`' ``tail``, three spreads of
+    the bulk's noise read beyond the profile's tail); the
     second moment is taken out to max(10 eps, 4 h) from the contour (the
     logistic tails beyond hold 0.3 % of the variance: a small negative bias
     that cancels in the diffusion audit's relative terms).
