@@ -117,5 +117,7 @@ def test_a_packed_matrix_keeps_its_bulk_and_its_widths_end_to_end(tmp_path, loca
     result = phasegauge.measure(str(tmp_path / "s_*.vtu"), "c", analyses=("interface",))
     step = result.steps.iloc[0]
     assert step["bulk_c_low"] == pytest.approx(0.02, abs=0.01)  # the matrix's mean, set above; our threshold
-    # 2 w ln 19: the logistic's 5-95 % thickness; 5 %: our threshold (now -2.1 % on points, +3.3 % on cells)
-    assert step["interface_width"] == pytest.approx(2 * w * np.log(19.0), rel=0.05)
+    # 2 w ln 19: the logistic's 5-95 % thickness; 5 % on points, 8 % on cells: our threshold, on cells with the
+    # cell averaging's bias 0.063 (h / eps)^2 = 4.4 % (now +1.3 % on points, +6.8 % on cells, the matrix read at
+    # 0.020; before, at 0.028 from values still on the drops' tails: -2.1 % and +3.3 %)
+    assert step["interface_width"] == pytest.approx(2 * w * np.log(19.0), rel=0.05 if location == "point" else 0.08)

@@ -58,7 +58,7 @@ def test_bulk_values_off_zero_and_one_are_those_of_bulk_plateaus(threads):
     c = 0.02 + 0.95 * _logistic(mesh)
     prepared = prepare_widths(mesh, c, threads=threads)
     low, high, _ = prepared.plateaus
-    assert prepared.plateaus == bulk_plateaus(c, 0.5)
+    assert prepared.plateaus == bulk_plateaus(c, 0.5, mesh)
     assert abs(low - 0.02) < 2e-3 and abs(high - 0.97) < 2e-3
     measured = interface_metrics(mesh, c, prepared=prepared)
     _same(measured, interface_metrics(mesh, c))

@@ -26,6 +26,7 @@ from ..model.mesh import Mesh
 from ..model._threads import Beside, check_threads
 from ..model.simplices import _split_plan
 from ._boundary_reach import boundary_share
+from ._facing_interface import facing_interface_share
 from ._bulk_noise import (NOISE_EDGE_SPREADS, TOO_NOISY, beyond_reach_points, bulk_spread, side_deviations,
                           spread_of)
 from ._contour import _check_extremes, _check_level, find_interface
@@ -49,7 +50,7 @@ METRIC_KEYS = ("interface_size", "interface_width", "interface_width_cells", "wi
                "interface_eps", "width_second_moment", "interface_variance", "width_profile_median",
                "width_profile_p90", "widest_x", "widest_y", "widest_z",
                "under_resolved_interface_fraction", "interface_cells_across", "bulk_c_low", "bulk_c_high",
-               "width_cell_data_bias", "interface_near_boundary_fraction")
+               "width_cell_data_bias", "interface_near_boundary_fraction", "interface_near_interface_fraction")
 
 #: bias of the widths on point values rebuilt from cell data, per (h / eps)^2 (measured on cell
 #: averages of the logistic profile: +0.46 / +1.4 / +6.3 / +30 % at h / eps = 1/4, 1/2, 1, 2)
@@ -349,6 +350,11 @@ def interface_metrics(mesh: Mesh, indicator, *, level: float = 0.5, contour: Con
         relative bias of the widths on point values rebuilt from the cells,
         0.063 (h / eps)^2 (NaN with data on points); the threshold-free
         width integrates the cell values and carries a fifth of it.
+        ``interface_near_interface_fraction`` : float in [0, 1]; share of the
+        interface size with another stretch of interface, facing the other
+        way, within the second moment's reach along its normal (a thin film,
+        a ligament, the far side of a small drop: its profile is cut halfway,
+        :func:`._facing_interface.facing_interface_share`).
         All NaN when c does not cross ``level``.
     MeasuredDistances or None
         With ``return_distances`` only: ``point`` (signed distances at the
@@ -384,7 +390,9 @@ def interface_metrics(mesh: Mesh, indicator, *, level: float = 0.5, contour: Con
     every face is flat (its corners spanning a volume below 1e-10 of its
     diagonal cubed) and cut alike from both
     sides (no looser flatness, so no added error).
-    Cells whose corners all lie within 1e-6 of 0 or of 1 are skipped; the
+    Cells whose corners all lie within 1e-6 of 0 or of 1 are skipped (with bulk
+    values off 0 and 1, within :func:`bulk_plateaus`' ``tail``, three spreads of
+    the bulk's noise read beyond the profile's tail); the
     second moment is taken out to max(10 eps, 4 h) from the contour (the
     logistic tails beyond hold 0.3 % of the variance: a small negative bias
     that cancels in the diffusion audit's relative terms).
@@ -564,5 +572,8 @@ def _metrics(prepared: PreparedWidths, max_samples: int, threads: int = 1, *, di
         "interface_near_boundary_fraction": boundary_share(mesh, geometry.centroids, sizes, float(bound),
                                                            normals=geometry.normals, lateral=h_interface,
                                                            periodic=periodic),
+        # the share whose profile another interface, facing it, cuts within that reach (a thin film)
+        "interface_near_interface_fraction": facing_interface_share(geometry.centroids, geometry.normals, sizes,
+                                                                    float(bound), h_interface),
     }
     return metrics, table, measured

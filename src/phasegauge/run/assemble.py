@@ -22,7 +22,7 @@ import numpy as np
 
 from ..errors import (AnalysisError, InputError, PhasegaugeError, SeriesError, SeriesWarning,
                       SkippedStepWarning, collapse_warnings)
-from ._boundary_findings import boundary_reach_finding, resolution_finding
+from ._boundary_findings import boundary_reach_finding, facing_interface_finding, resolution_finding
 from ._coarsening_finding import coarsening_finding
 from ._bulk_findings import bulk_plateaus_finding
 from ._drift_findings import drift_findings
@@ -42,8 +42,8 @@ class Finding:
         change no larger than what the cells left out for non-finite values could account for: a note),
         ``open_boundary``,
         ``indicator_overshoot``, ``bulk_plateaus`` (bulk off 0 and 1 read as physics), ``interface_under_resolved``,
-        ``width_cell_data_bias``, ``interface_near_boundary``, ``diffusivity_per_step``, ``free_energy_increase``,
-        ``coarsening``,
+        ``width_cell_data_bias``, ``interface_near_boundary``, ``interface_near_interface``, ``diffusivity_per_step``,
+        ``free_energy_increase``, ``coarsening``,
         ``droplets_under_resolved``, ``steps_skipped``, the mixture findings
         (``separated_one_phase``, ``mixed_inside_spinodal``, ``bulk_not_measured``, ``level_outside_binodal``,
         ``binodal_gap``, ``binodal_gibbs_thomson``, ``binodal_reached``; see ``run/_mixture.py``),
@@ -461,7 +461,8 @@ def findings(steps, droplets, audit: dict, options, skipped: list, *, dimension:
                                  + (f"; {plateaus}" if plateaus else ""),
                                  {"overshoot_volume": worst, "c_min": c_min, "c_max": c_max,
                                   "tolerance": tolerance}))
-    found += [f for f in (resolution_finding(steps, audit, kind), boundary_reach_finding(steps, kind)) if f is not None]
+    found += [f for f in (resolution_finding(steps, audit, kind), boundary_reach_finding(steps, kind),
+                          facing_interface_finding(steps, kind)) if f is not None]
     if "width_cell_data_bias" in steps and kind != "sharp":  # a sharp interface is one to two cells by design
         # over the steps the audit fits, resolved ones (a sharp first step is outside the bias's calibration)
         fitted = np.ones(len(steps), dtype=bool)

@@ -1,0 +1,73 @@
+"""How much of an interface has another stretch of interface, facing the other way, within the widths' reach.
+
+The widths' second moment takes each point's distance to the nearest contour. Where two interfaces lie
+closer than the reach (a thin film or a ligament, two drops about to merge, the far side of a small drop),
+each profile is cut at the line halfway between them and the variance, and the numerical diffusivity read
+from its growth, come out low: the exact diffusion of a slab started sharp, 0.08 and 0.06 thick on 128^2
+cells, read 0.93 and 0.78 of its diffusivity over six outputs (``tests/analysis/test_facing_interface.py``).
+"""
+
+from __future__ import annotations
+
+import numpy as np
+
+__all__ = ["facing_interface_share", "FACING_SAMPLE"]
+
+#: the share is read on at most this many elements, evenly spaced (our threshold: a share p read on n of them
+#: scatters by sqrt(p (1 - p) / n), 0.34 % at p = 0.05 and n = 4096)
+FACING_SAMPLE = 4096
+#: at most this many points along each half of an element's normal line
+_MAX_SAMPLES = 32
+#: elements asked for near each point of a line
+_NEAREST = 4
+#: another element faces an element when their normals lie more than 135 degrees apart
+_OPPOSITE = -np.cos(np.pi / 4)
+
+
+def facing_interface_share(centroids: np.ndarray, normals: np.ndarray, sizes: np.ndarray, reach: float,
+                           lateral: float) -> float:
+    """The share of the interface (element sizes ``sizes`` at ``centroids``, unit ``normals`` towards
+    higher c) with another element facing the other way within ``reach`` along its normal line.
+
+    Each element's normal line is sampled on both sides at ``m`` points a step ``reach / m <= lateral``
+    apart (``m`` at most :data:`_MAX_SAMPLES`; ``lateral`` about a cell, the contour's elements' size); an
+    element facing the other way (normals more than 135 degrees apart) among the :data:`_NEAREST` whose
+    centroids lie within ``hypot(lateral, step / 2)`` of a point, and within ``reach`` of the element,
+    makes it count: an interface crossing the line at a distance t lies within half a step of one point,
+    and its nearest centroid within about a cell of the crossing. Its own interface's elements share its
+    normal and never count. Read on at most :data:`FACING_SAMPLE` elements, evenly spaced, weighted by their
+    sizes. Domains that wrap are not wrapped here: a facing interface across a periodic plane is not seen.
+    NaN without elements, reach or lateral.
+    """
+    from scipy.spatial import cKDTree
+
+    sizes = np.asarray(sizes, dtype=float)
+    if (sizes.size < 2 or not np.sum(sizes) > 0 or not np.isfinite(reach) or not reach > 0
+            or not lateral > 0):
+        return float("nan")
+    at = np.asarray(centroids, dtype=float)
+    unit = np.asarray(normals, dtype=float)
+    unit = unit / np.maximum(np.linalg.norm(unit, axis=1), 1e-300)[:, None]
+    tree = cKDTree(at, balanced_tree=False)  # (built fast: the sliding midpoint rule)
+    picked = np.arange(0, sizes.size, -(-sizes.size // FACING_SAMPLE))
+    m = int(min(_MAX_SAMPLES, max(1, np.ceil(reach / lateral))))
+    step = reach / m
+    radius = float(np.hypot(lateral, 0.5 * step))
+    along = step * np.r_[np.arange(1, m + 1), -np.arange(1, m + 1)]
+    k = min(_NEAREST, sizes.size)
+    faced = np.zeros(picked.size, dtype=bool)
+    for t in along:
+        todo = np.flatnonzero(~faced)
+        if todo.size == 0:
+            break
+        rows = picked[todo]
+        _, near = tree.query(at[rows] + t * unit[rows], k=k, distance_upper_bound=radius)
+        near = near.reshape(rows.size, k)
+        found = near < sizes.size
+        near = np.where(found, near, rows[:, None])
+        opposite = np.einsum("ikj,ij->ik", unit[near], unit[rows]) < _OPPOSITE
+        offset = at[near] - at[rows][:, None, :]
+        within = np.einsum("ikj,ikj->ik", offset, offset) <= reach * reach
+        faced[todo[(found & opposite & within).any(axis=1)]] = True
+    weight = sizes[picked]
+    return float(np.sum(weight[faced]) / np.sum(weight))
