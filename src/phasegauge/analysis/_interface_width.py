@@ -142,7 +142,9 @@ class PreparedWidths:
             self.cell_mixed = _cell_mixed(mesh, indicator, low, high, tail, near)
             if near is not None and layout is None:  # the extremes of the values the integrals read
                 extremes = corner_extremes(mesh, self.clipped)
+            self.noise_left_out = near is not None
             self.integrals = self._integrals(band, layout, extremes, tail, rescaled=near is not None)
+            self.moment_integrals = self._moment_integrals(band, layout, tail)
         self.contour, self.geometry, self.pieces = found if side is None else side.result()
 
     def _rescaled(self, values: np.ndarray) -> np.ndarray:
@@ -193,18 +195,30 @@ class PreparedWidths:
         self.clipped = np.where(beyond, np.where(self.clipped < level, 0.0, 1.0), self.clipped)
         return near
 
-    def _integrals(self, band, layout, extremes, tail: float, *, rescaled: bool = False):
+    def _moment_integrals(self, band, layout, tail: float):
+        """The band integrals the second moment reads: over the values between the bulk values as written,
+        neither clipped nor with bulk noise left out (its weight, grad c . grad d, takes noise at zero mean,
+        which a clip or a leave-out would bias); the widths' own integrals where those read the same values."""
+        low, high, _ = self.plateaus
+        values = self.c_point if (low, high) == (0.0, 1.0) else (self.c_point - low) / (high - low)
+        if np.array_equal(values, self.clipped, equal_nan=True):
+            return self.integrals
+        extremes = None if layout is not None else corner_extremes(self.mesh, values)
+        return self._integrals(band, layout, extremes, tail, rescaled=True, values=values)
+
+    def _integrals(self, band, layout, extremes, tail: float, *, rescaled: bool = False, values=None):
         mesh, (low, high, _) = self.mesh, self.plateaus
+        values = self.clipped if values is None else values
         if band is _GridBand:
-            return _GridBand(mesh, self.clipped, layout, cutoff=tail)
+            return _GridBand(mesh, values, layout, cutoff=tail)
         # the extremes of the clipped values are the clipped extremes: those of c will do
         lo, hi = extremes
         if (low, high) != (0.0, 1.0) and not rescaled:
             lo, hi = (lo - low) / (high - low), (hi - low) / (high - low)
         active = (hi > tail) & (lo < 1.0 - tail)
         if band is _HexBand:  # hexahedra coned on all faces: integrated cell by cell
-            return _HexBand(mesh, self.clipped, active, coned_hexahedra(mesh), lo, hi)
-        return _SplitBand(mesh, self.clipped, active)
+            return _HexBand(mesh, values, active, coned_hexahedra(mesh), lo, hi)
+        return _SplitBand(mesh, values, active)
 
 
 def _band_kind(mesh: Mesh, layout):
@@ -525,7 +539,9 @@ def _metrics(prepared: PreparedWidths, max_samples: int, threads: int = 1, *, di
     bound = max(_MOMENT_RANGE * band_eps, 4.0 * h_interface) if np.isfinite(band_eps) else np.inf
     searched = geometry if prepared.pieces is None else prepared.pieces
     dist = integrals.distances(searched, prepared.width_level, bound, threads)
-    m0, m1, m2 = integrals.moments(dist)
+    moments = prepared.moment_integrals
+    m0, m1, m2 = moments.moments(dist if moments is integrals
+                                 else moments.distances(searched, prepared.width_level, bound, threads))
     variance = m2 / m0 - (m1 / m0) ** 2 if m0 > 0 else float("nan")
     # cells of the contour
     g_el = cell_gradient(mesh, prepared.clipped, cells=contour.cells)
