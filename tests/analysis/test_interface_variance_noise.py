@@ -11,6 +11,7 @@ import pytest
 from scipy import stats
 
 from phasegauge.analysis.interface import diffusion_audit, interface_metrics
+from phasegauge.errors import OptionError
 from phasegauge.meshgen import grid_mesh
 
 N = 128
@@ -31,15 +32,18 @@ def _drop(mesh, diffusivity, t):
 
 
 def _series(diffusivity, noise_first, noise_last, seed):
-    """Times, interface_variance and the analytic variances of a drop whose noise sd moves linearly."""
+    """interface_variance, the analytic variances and bulk_noise_left_out of a drop whose noise sd moves
+    linearly over TIMES."""
     mesh = grid_mesh((N, N), kind="quad")
     rng = np.random.default_rng(seed)
-    variances, exact = [], []
+    variances, exact, left_out = [], [], []
     for t, sd in zip(TIMES, np.linspace(noise_first, noise_last, TIMES.size)):
         c, eps = _drop(mesh, diffusivity, t)
-        variances.append(interface_metrics(mesh, c + rng.normal(0.0, sd, c.size))["interface_variance"])
+        metrics = interface_metrics(mesh, c + rng.normal(0.0, sd, c.size))
+        variances.append(metrics["interface_variance"])
+        left_out.append(metrics["bulk_noise_left_out"])
         exact.append(_variance(eps))
-    return np.array(variances), np.array(exact)
+    return np.array(variances), np.array(exact), np.array(left_out)
 
 
 def test_noise_free_variance_is_the_logistic_one():
@@ -61,7 +65,7 @@ def _check_unbiased(variances, exact):
 def test_growing_noise_on_a_constant_width_is_no_widening(seed):
     # the noise sd grows from 1.5 % to 2.8 % of the jump (bulk noise left out at every step): the variance
     # weighted by |grad c| grew with it (a constant drop read "keeps widening", D about 1e-4)
-    variances, exact = _series(0.0, 0.015, 0.028, seed)
+    variances, exact, left_out = _series(0.0, 0.015, 0.028, seed)
     _check_unbiased(variances, exact)
     audit = diffusion_audit(TIMES, variances)
     assert not audit["widening"] and not audit["significant"]  # D = 0 built
@@ -71,17 +75,29 @@ def test_growing_noise_on_a_constant_width_is_no_widening(seed):
 def test_noise_crossing_the_leave_out_edge_keeps_the_variance(first, last):
     # noise drifting across the share at which the bulk noise is left out (about 1.2 % of the jump) made
     # the variance jump by a third at the step it switched: read "keeps widening" on a constant drop
-    variances, exact = _series(0.0, first, last, 3)
+    variances, exact, left_out = _series(0.0, first, last, 3)
     _check_unbiased(variances, exact)
-    assert not diffusion_audit(TIMES, variances)["widening"]
+    # the state is recorded per step, and the audit says where it changes within the fitted steps
+    assert left_out[0] == (first > last) and left_out[-1] == (first < last)
+    audit = diffusion_audit(TIMES, variances, noise_left_out=left_out)
+    assert not audit["widening"]
+    assert audit["noise_left_out_changes"] == np.count_nonzero(np.diff(left_out)) >= 1
+    assert "left out of the widths at some fitted steps" in audit["verdict"]
 
 
 def test_real_widening_with_noise_crossing_the_leave_out_edge():
     # D = 2e-4 built with the noise rising from 0.8 % to 1.6 %: read "no significant widening" before
-    variances, exact = _series(2e-4, 0.008, 0.016, 2)
+    variances, exact, left_out = _series(2e-4, 0.008, 0.016, 2)
     assert np.polyfit(TIMES, exact, 1)[0] / 2 == pytest.approx(2e-4, rel=1e-9)  # the construction: 2 D t
     _check_unbiased(variances, exact)
     audit = diffusion_audit(TIMES, variances, physical_diffusivity=2e-4)
     assert audit["widening"]
     # within 15 % (our threshold; over seeds 1-5 the fit reads 0.77-1.08 D, each within 2.5 of its stderr)
     assert audit["D_num"] == pytest.approx(2e-4, rel=0.15)
+
+
+def test_audit_without_a_change_of_state_says_nothing_of_it():
+    audit = diffusion_audit([0, 1, 2, 3], [1.0, 1.2, 1.4, 1.6], noise_left_out=[1, 1, 1, 1])
+    assert audit["noise_left_out_changes"] == 0 and "left out" not in audit["verdict"]
+    with pytest.raises(OptionError, match="noise_left_out differ in length"):
+        diffusion_audit([0, 1, 2, 3], [1.0, 1.2, 1.4, 1.6], noise_left_out=[1, 1])

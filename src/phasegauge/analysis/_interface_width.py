@@ -49,7 +49,7 @@ METRIC_KEYS = ("interface_size", "interface_width", "interface_width_cells", "wi
                "interface_eps", "width_second_moment", "interface_variance", "width_profile_median",
                "width_profile_p90", "widest_x", "widest_y", "widest_z",
                "under_resolved_interface_fraction", "interface_cells_across", "bulk_c_low", "bulk_c_high",
-               "width_cell_data_bias", "interface_near_boundary_fraction")
+               "width_cell_data_bias", "interface_near_boundary_fraction", "bulk_noise_left_out")
 
 #: bias of the widths on point values rebuilt from cell data, per (h / eps)^2 (measured on cell
 #: averages of the logistic profile: +0.46 / +1.4 / +6.3 / +30 % at h / eps = 1/4, 1/2, 1, 2)
@@ -342,8 +342,10 @@ def interface_metrics(mesh: Mesh, indicator, *, level: float = 0.5, contour: Con
         ``width_second_moment`` : float, length; 5.889 sqrt(3 var) / pi, the
         logistic 5-95 % thickness with the same variance of dc/dn.
         ``interface_variance`` : float, length squared; variance of the
-        normal-distance distribution weighted by |grad c| (of dc/dn), the
-        quantity :func:`diffusion_audit` fits.
+        normal-distance distribution of dc/dn (weighted by grad c . grad d,
+        d the signed distance, over the values between the bulk values as
+        written: no clip, no bulk noise left out), the quantity
+        :func:`diffusion_audit` fits.
         ``width_profile_median``, ``width_profile_p90`` : float, length;
         length/area-weighted median and 90th percentile of the local logistic
         fits of c against normal distance (:func:`interface_profile_table`),
@@ -363,6 +365,9 @@ def interface_metrics(mesh: Mesh, indicator, *, level: float = 0.5, contour: Con
         relative bias of the widths on point values rebuilt from the cells,
         0.063 (h / eps)^2 (NaN with data on points); the threshold-free
         width integrates the cell values and carries a fifth of it.
+        ``bulk_noise_left_out`` : float; 1 where the bulk noise was left out
+        of the widths (the points beyond the contour's reach read their
+        side's bulk), else 0.
         All NaN when c does not cross ``level``.
     MeasuredDistances or None
         With ``return_distances`` only: ``point`` (signed distances at the
@@ -581,5 +586,6 @@ def _metrics(prepared: PreparedWidths, max_samples: int, threads: int = 1, *, di
         "interface_near_boundary_fraction": boundary_share(mesh, geometry.centroids, sizes, float(bound),
                                                            normals=geometry.normals, lateral=h_interface,
                                                            periodic=periodic),
+        "bulk_noise_left_out": float(prepared.noise_left_out),
     }
     return metrics, table, measured
