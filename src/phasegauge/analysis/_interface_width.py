@@ -404,9 +404,13 @@ def interface_metrics(mesh: Mesh, indicator, *, level: float = 0.5, contour: Con
     diagonal cubed) and cut alike from both
     sides (no looser flatness, so no added error).
     Cells whose corners all lie within 1e-6 of 0 or of 1 are skipped; the
-    second moment is taken out to max(10 eps, 4 h) from the contour (the
-    logistic tails beyond hold 0.3 % of the variance: a small negative bias
-    that cancels in the diffusion audit's relative terms).
+    second moment is taken out to max(10 eps, 4 h) from the contour, eps from
+    the band volume (the logistic tails beyond hold 0.3 % of the variance: a
+    small negative bias that cancels in the diffusion audit's relative terms).
+    Its weight is the measure times grad c . grad d, d the signed distance
+    (linear on each simplex, like c), over the values between the bulk values
+    as written (neither clipped nor with bulk noise left out): the noise's part
+    of it has zero mean, where |grad c| counted noise at every distance.
 
     For the logistic profile c = 1/2 (1 + tanh(n / (2 eps))): band volume per
     area over a < c < 1 - a is 2 eps ln((1 - a) / a); int c(1 - c) dn = eps
@@ -421,7 +425,8 @@ def interface_metrics(mesh: Mesh, indicator, *, level: float = 0.5, contour: Con
     points beyond the contour's reach then read their side's bulk
     (:func:`._bulk_noise.beyond_reach_points`), which keeps ``interface_width``
     within 3 % of its noise-free value up to a spread of 3 %; beyond 4 % a
-    :class:`PhasegaugeWarning`.
+    :class:`PhasegaugeWarning`. ``bulk_noise_left_out`` says whether a step did
+    so; the second moment does not read it.
 
     References
     ----------
