@@ -144,7 +144,7 @@ class PreparedWidths:
                 extremes = corner_extremes(mesh, self.clipped)
             self.noise_left_out = near is not None
             self.integrals = self._integrals(band, layout, extremes, tail, rescaled=near is not None)
-            self.moment_integrals = self._moment_integrals(band, layout, tail)
+            self._moment_plan, self._moments = (band, layout, tail), None  # see moment_integrals
         self.contour, self.geometry, self.pieces = found if side is None else side.result()
 
     def _rescaled(self, values: np.ndarray) -> np.ndarray:
@@ -195,16 +195,18 @@ class PreparedWidths:
         self.clipped = np.where(beyond, np.where(self.clipped < level, 0.0, 1.0), self.clipped)
         return near
 
-    def _moment_integrals(self, band, layout, tail: float):
-        """The band integrals the second moment reads: over the values between the bulk values as written,
-        neither clipped nor with bulk noise left out (its weight, grad c . grad d, takes noise at zero mean,
-        which a clip or a leave-out would bias); the widths' own integrals where those read the same values."""
-        low, high, _ = self.plateaus
-        values = self.c_point if (low, high) == (0.0, 1.0) else (self.c_point - low) / (high - low)
-        if np.array_equal(values, self.clipped, equal_nan=True):
-            return self.integrals
-        extremes = None if layout is not None else corner_extremes(self.mesh, values)
-        return self._integrals(band, layout, extremes, tail, rescaled=True, values=values)
+    @property
+    def moment_integrals(self):
+        """The band integrals the second moment reads (formed when first read): over the values between the bulk
+        values as written, not clipped nor with bulk noise left out (its weight grad c . grad d takes noise at zero
+        mean, which those would bias); the widths' own where those read the same values."""
+        if self._moments is None:
+            (low, high, _), (band, layout, tail) = self.plateaus, self._moment_plan
+            values = self.c_point if (low, high) == (0.0, 1.0) else (self.c_point - low) / (high - low)
+            self._moments = self.integrals if np.array_equal(values, self.clipped, equal_nan=True) else \
+                self._integrals(band, layout, None if layout is not None else corner_extremes(self.mesh, values),
+                                tail, rescaled=True, values=values)
+        return self._moments
 
     def _integrals(self, band, layout, extremes, tail: float, *, rescaled: bool = False, values=None):
         mesh, (low, high, _) = self.mesh, self.plateaus
@@ -407,10 +409,9 @@ def interface_metrics(mesh: Mesh, indicator, *, level: float = 0.5, contour: Con
     second moment is taken out to max(10 eps, 4 h) from the contour, eps from
     the band volume (the logistic tails beyond hold 0.3 % of the variance: a
     small negative bias that cancels in the diffusion audit's relative terms).
-    Its weight is the measure times grad c . grad d, d the signed distance
-    (linear on each simplex, like c), over the values between the bulk values
-    as written (neither clipped nor with bulk noise left out): the noise's part
-    of it has zero mean, where |grad c| counted noise at every distance.
+    Its weight is the measure times grad c . grad d (d the signed distance, linear
+    on each simplex like c) over the values between the bulk values as written (not
+    clipped, no bulk noise left out): noise adds to it at zero mean.
 
     For the logistic profile c = 1/2 (1 + tanh(n / (2 eps))): band volume per
     area over a < c < 1 - a is 2 eps ln((1 - a) / a); int c(1 - c) dn = eps
