@@ -78,7 +78,7 @@ from ..model.corners import corner_sum
 from ..model.simplices import _split_plan
 from ._sums import dot
 from ._signed_distance import _ContourGeometry, _signed_distance, _whole_cell_pieces
-from ._width_integrals import _SplitBand, _band_volume
+from ._width_integrals import NEAR_BAND, _SplitBand, _band_volume
 
 #: cells per chunk (the chunk's temporaries, about 150 arrays of this many floats, stay in cache)
 _CELL_CHUNK = 1 << 12
@@ -479,8 +479,9 @@ class _HexBand:
     Same attributes and methods as :class:`._width_integrals._SplitBand`.
     """
 
-    def __init__(self, mesh: Mesh, clipped: np.ndarray, active: np.ndarray, rows: list, low, high):
-        self.mesh, self.values = mesh, clipped
+    def __init__(self, mesh: Mesh, clipped: np.ndarray, active: np.ndarray, rows: list, low, high, *,
+                 near_band: float = NEAR_BAND):
+        self.mesh, self.values, self.near_band = mesh, clipped, near_band
         mine = []
         rest = active.copy()
         for (local, codes), start in zip(rows, mesh.block_offsets[:-1]):
@@ -488,7 +489,7 @@ class _HexBand:
             mine.append((local[keep], codes[keep]))
             rest[start + local] = False
         self.cells = _HexCells(mesh, clipped, mine, low, high)
-        self.rest = _SplitBand(mesh, clipped, rest) if rest.any() else None
+        self.rest = _SplitBand(mesh, clipped, rest, near_band=near_band) if rest.any() else None
         self.count = self.cells.count + (self.rest.count if self.rest else 0)
         self.band = self.cells.band + (self.rest.band if self.rest else 0.0)
         self.mixed = self.cells.mixed + (self.rest.mixed if self.rest else 0.0)
@@ -512,7 +513,7 @@ class _HexBand:
             need = need & ~np.isfinite(dist)
         used = np.flatnonzero(need)
         dist[used] = _signed_distance(self.mesh.coordinates[used], self.values[used], geometry,
-                                      self.mesh.plane_axes, level, bound, threads=threads)
+                                      self.mesh.plane_axes, level, bound, near_band=self.near_band, threads=threads)
         return dist
 
     def moments(self, dist: np.ndarray) -> tuple[float, float, float]:

@@ -33,7 +33,7 @@ from ._profile_fits import PROFILE_COLUMNS, WIDTH_PER_EPS, _profile_table
 from ._hex_integrals import _HexBand, coned_hexahedra
 from ._signed_distance import MeasuredDistances, _ContourGeometry, _whole_cell_pieces
 from ._bulk_plateaus import bulk_plateaus
-from ._width_integrals import _LOW, _GridBand, _SplitBand, _grid_tetrahedra
+from ._width_integrals import _LOW, NEAR_BAND, _GridBand, _SplitBand, _grid_tetrahedra
 
 __all__ = ["interface_metrics", "interface_profile_table", "prepare_widths", "PreparedWidths", "METRIC_KEYS",
            "PROFILE_COLUMNS", "WIDTH_PER_EPS"]
@@ -205,22 +205,23 @@ class PreparedWidths:
             values = self.c_point if (low, high) == (0.0, 1.0) else (self.c_point - low) / (high - low)
             self._moments = self.integrals if np.array_equal(values, self.clipped, equal_nan=True) else \
                 self._integrals(band, layout, None if layout is not None else corner_extremes(self.mesh, values),
-                                tail, rescaled=True, values=values)
+                                tail, rescaled=True, values=values, near_band=-np.inf)
         return self._moments
 
-    def _integrals(self, band, layout, extremes, tail: float, *, rescaled: bool = False, values=None):
+    def _integrals(self, band, layout, extremes, tail: float, *, rescaled: bool = False, values=None,
+                   near_band: float = NEAR_BAND):
         mesh, (low, high, _) = self.mesh, self.plateaus
         values = self.clipped if values is None else values
         if band is _GridBand:
-            return _GridBand(mesh, values, layout, cutoff=tail)
+            return _GridBand(mesh, values, layout, cutoff=tail, near_band=near_band)
         # the extremes of the clipped values are the clipped extremes: those of c will do
         lo, hi = extremes
         if (low, high) != (0.0, 1.0) and not rescaled:
             lo, hi = (lo - low) / (high - low), (hi - low) / (high - low)
         active = (hi > tail) & (lo < 1.0 - tail)
         if band is _HexBand:  # hexahedra coned on all faces: integrated cell by cell
-            return _HexBand(mesh, values, active, coned_hexahedra(mesh), lo, hi)
-        return _SplitBand(mesh, values, active)
+            return _HexBand(mesh, values, active, coned_hexahedra(mesh), lo, hi, near_band=near_band)
+        return _SplitBand(mesh, values, active, near_band=near_band)
 
 
 def _band_kind(mesh: Mesh, layout):

@@ -40,6 +40,10 @@ _CHUNK = 1 << 15
 _LOW, _HIGH = 0.05, 0.95
 #: cell types that are their own simplex split (integrated straight from the connectivity)
 _DIRECT_TYPES = ("triangle", "tetra")
+#: the distances of points with c within this of a bulk search a thinned set of the contour's elements
+#: (:func:`._signed_distance._signed_distance`); the second moment's integrals search every element at every
+#: point (-inf): with noise, which points are near a bulk follows the noise, and the thinned set's error with it
+NEAR_BAND = 0.01
 
 
 def _chunks(n: int, size: int = _CHUNK):
@@ -201,8 +205,8 @@ class _SplitBand:
         Vertices of the simplices where c is not constant.
     """
 
-    def __init__(self, mesh: Mesh, clipped: np.ndarray, active: np.ndarray):
-        self.mesh = mesh
+    def __init__(self, mesh: Mesh, clipped: np.ndarray, active: np.ndarray, *, near_band: float = NEAR_BAND):
+        self.mesh, self.near_band = mesh, near_band
         if all(block.cell_type in _DIRECT_TYPES for block in mesh.blocks):
             # the cells are their own split: read them block by block, no copy
             self.split = SimplexSplit(mesh.coordinates, np.zeros((0, mesh.dimension + 1), np.int64),
@@ -267,9 +271,10 @@ class _SplitBand:
             if centres is not None and self.active is not None:
                 reach = mesh.memo("split_centre_reach", lambda: _centre_reach(mesh.coordinates, centres))
                 return _centre_split_distance(mesh.coordinates, self.split.point_values, self.known, centres,
-                                              geometry, mesh.plane_axes, level, bound, reach, threads=threads)
+                                              geometry, mesh.plane_axes, level, bound, reach,
+                                              near_band=self.near_band, threads=threads)
         return _vertex_distances(self.split, self.known, geometry, self.mesh.plane_axes, level, bound,
-                                 threads=threads)
+                                 threads=threads, near_band=self.near_band)
 
     def moments(self, dist: np.ndarray) -> tuple[float, float, float]:
         """(m0, m1, m2) of :func:`_moment_sums` over all simplices where c varies, weighted by
@@ -336,9 +341,10 @@ class _GridBand:
     grid points in C order (``RegularGrid.point_shape``).
     """
 
-    def __init__(self, mesh: Mesh, clipped: np.ndarray, layout: dict, *, cutoff: float = _TAIL):
+    def __init__(self, mesh: Mesh, clipped: np.ndarray, layout: dict, *, cutoff: float = _TAIL,
+                 near_band: float = NEAR_BAND):
         grid = mesh.regular_grid
-        self.mesh, self.grid, self.layout = mesh, grid, layout
+        self.mesh, self.grid, self.layout, self.near_band = mesh, grid, layout, near_band
         values = np.empty(mesh.n_points)
         values[grid.point_index] = clipped
         self.values = values
@@ -433,7 +439,7 @@ class _GridBand:
             points[:, d] = axis_values[index[d]]
         dist = np.full(self.values.shape[0], np.nan)
         dist[wanted] = _signed_distance(points, self.values[wanted], geometry, self.mesh.plane_axes, level,
-                                        bound, threads=threads)
+                                        bound, near_band=self.near_band, threads=threads)
         return dist
 
     def moments(self, dist: np.ndarray) -> tuple[float, float, float]:
