@@ -111,7 +111,8 @@ def test_simplex_meshes_skip_the_split(monkeypatch, kind, jitter):
 
 def _reference(mesh, c_point, level=0.5):
     """Band width, threshold-free eps and variance simplex by simplex with numpy.linalg (the
-    first implementation's arithmetic): every active cell split, every simplex integrated."""
+    first implementation's arithmetic): every active cell split, every simplex integrated; the variance
+    weighted by the measure times grad c . grad d."""
     clipped = np.clip(c_point, 0, 1)
     lo = np.concatenate([clipped[b.connectivity].min(axis=1) for b in mesh.blocks])
     hi = np.concatenate([clipped[b.connectivity].max(axis=1) for b in mesh.blocks])
@@ -141,6 +142,10 @@ def _reference(mesh, c_point, level=0.5):
         geometry = _whole_cell_pieces(mesh, geometry)  # searched against one plane per crossed (whole) cell there
     dist = _vertex_distances(split, known, geometry, mesh.plane_axes, level, max(10 * eps, 4 * h))[S]
     use = (weight > 0) & np.all(np.isfinite(dist), axis=1)
+    # the moments' weight is the measure times grad c . grad d, d linear on each simplex too
+    grad_d = np.zeros((S.shape[0], d))
+    grad_d[ok & use] = np.linalg.solve(E[ok & use], (dist[ok & use, 1:] - dist[ok & use, :1])[..., None])[..., 0]
+    weight = vol * np.einsum("ij,ij->i", grad, grad_d)
     m0 = weight[use].sum()
     m1 = (weight[use] * dist[use].mean(axis=1)).sum()
     m2 = (weight[use] * ((dist[use].sum(axis=1) ** 2 + (dist[use] ** 2).sum(axis=1)) / (k * (k + 1)))).sum()

@@ -28,7 +28,7 @@ __all__ = ["diffusion_audit", "interface_kind", "AUDIT_KEYS", "SHARP_CELLS_ACROS
 
 AUDIT_KEYS = ("interface_kind", "interface_kind_measured", "cells_across", "D_num", "D_num_stderr", "D_ratio",
               "significant", "widening", "r_squared", "variance_0", "width_first", "width_last", "width_growth",
-              "fit_from_time", "n_fit", "n_steps", "verdict")
+              "fit_from_time", "n_fit", "n_steps", "noise_left_out_changes", "verdict")
 
 #: median local 10-90 % thickness (cells) below which a run's interface counts as sharp
 SHARP_CELLS_ACROSS = 3.5
@@ -67,9 +67,20 @@ def _empty(n: int, kind: str = "unknown", cells: float = float("nan"), verdict: 
            measured: str | None = None) -> dict:
     out = {key: float("nan") for key in AUDIT_KEYS}
     out.update(interface_kind=kind, interface_kind_measured=measured or kind, cells_across=cells, significant=False,
-               widening=False, n_fit=0, n_steps=n,
+               widening=False, n_fit=0, n_steps=n, noise_left_out_changes=0,
                verdict=verdict or f"too few steps with a measured width ({n}) for a diffusivity")
     return out
+
+
+def _state_changes(left_out, t) -> tuple[int, float]:
+    """How often a per-step 0/1 state changes between consecutive steps (NaN steps skipped) and the time of
+    the first step after the first change (NaN without one)."""
+    if left_out is None:
+        return 0, float("nan")
+    known = np.isfinite(left_out)
+    state, times = left_out[known] > 0.5, t[known]
+    changed = np.flatnonzero(state[1:] != state[:-1])
+    return int(changed.size), (float(times[changed[0] + 1]) if changed.size else float("nan"))
 
 
 def interface_kind(cells_across) -> tuple[str, float]:
@@ -171,7 +182,7 @@ def _robust_fit(t, v):
 def diffusion_audit(times, variances, *, cells_across=None, physical_diffusivity: float | None = None,
                     min_steps: int = 3, growth_threshold: float = 0.05,
                     confidence: float = 0.95, times_are_indices: bool = False,
-                    declared_kind: str | None = None) -> dict:
+                    declared_kind: str | None = None, noise_left_out=None) -> dict:
     """Effective diffusivity of the interface from its variance history.
 
     Parameters
@@ -203,6 +214,9 @@ def diffusion_audit(times, variances, *, cells_across=None, physical_diffusivity
     declared_kind : {'sharp', 'diffuse'}, optional
         The kind the user knows the run to be: it takes the place of the kind read from
         ``cells_across`` (which is kept as ``interface_kind_measured``).
+    noise_left_out : array_like of shape (n,), optional
+        ``bulk_noise_left_out`` of each step (:func:`interface_metrics`): 1 where the bulk noise was left
+        out of the widths. The verdict says where it changes within the fitted steps.
 
     Returns
     -------
@@ -227,6 +241,9 @@ def diffusion_audit(times, variances, *, cells_across=None, physical_diffusivity
         ``fit_from_time`` : time of the first fitted step; ``n_fit``: steps
         fitted (NaN and 0 for a sharp interface, whose widths are then taken
         over every step); ``n_steps``: steps with a variance.
+        ``noise_left_out_changes`` : int; how often ``noise_left_out`` changes between consecutive
+        fitted steps (0 without it). The variance reads the values as written, so such a change does not
+        move it; the band-volume and threshold-free widths change estimator there.
         ``verdict`` : str; the audit in one sentence (what the report shows).
 
     Raises
@@ -274,7 +291,12 @@ def diffusion_audit(times, variances, *, cells_across=None, physical_diffusivity
     if t.shape != v.shape:
         raise OptionError(f"times and variances differ in length ({t.size} and {v.size})",
                           fix="pass one variance per time")
-    cells = None
+    cells = left_out = None
+    if noise_left_out is not None:
+        left_out = _as_series(noise_left_out, "noise_left_out")
+        if left_out.shape != t.shape:
+            raise OptionError(f"times and noise_left_out differ in length ({t.size} and {left_out.size})",
+                              fix="pass one bulk_noise_left_out per time")
     if cells_across is not None:
         cells = _as_series(cells_across, "cells_across")
         if cells.shape != t.shape:
@@ -305,6 +327,7 @@ def diffusion_audit(times, variances, *, cells_across=None, physical_diffusivity
     ok = np.isfinite(t) & np.isfinite(v)
     t, v = t[ok], v[ok]
     cells = cells[ok] if cells is not None else None
+    left_out = left_out[ok] if left_out is not None else None
     n = int(t.size)
     if n < min_steps or np.ptp(t) <= 0:
         return _empty(n, kind, median_cells, measured=measured)
@@ -333,11 +356,12 @@ def diffusion_audit(times, variances, *, cells_across=None, physical_diffusivity
         if resolved.size and n - resolved[0] >= min_steps and np.ptp(t[resolved[0]:]) > 0:
             start = int(resolved[0])
     tf, vf = t[start:], v[start:]
+    changes, switched = _state_changes(None if left_out is None else left_out[order][start:], tf)
     width_first, width_last = _end_widths(vf)
     growth = _growth(vf)
     common = {"interface_kind": kind, "interface_kind_measured": measured, "cells_across": median_cells,
               "width_first": width_first, "width_last": width_last, "width_growth": growth,
-              "fit_from_time": float(tf[0]), "n_fit": int(tf.size), "n_steps": n}
+              "fit_from_time": float(tf[0]), "n_fit": int(tf.size), "n_steps": n, "noise_left_out_changes": changes}
     # a run declared sharp whose thickness reads diffuse is a smeared one: fitted as a diffuse run (so is
     # one whose thickness is not read)
     if kind == "sharp" and measured == "sharp" and not smeared:
@@ -395,6 +419,10 @@ def diffusion_audit(times, variances, *, cells_across=None, physical_diffusivity
                    f"{100 * growth:+.3g} % (threshold {100 * float(growth_threshold):.3g} %)")
     if times_are_indices:
         verdict += " (the steps store no times: per step index)"
+    if changes:
+        verdict += (f"; the bulk noise is left out of the widths at some fitted steps and not at others ({changes} "
+                    f"change(s), first at t = {switched:g}): the variance fitted reads the values as written and "
+                    "does not change with it, but interface_width and width_threshold_free do")
     if smeared:
         verdict = (f"sharp interface in median ({median_cells:.2g} cells across), but it smears steadily to "
                    f"{tail:.2g} cells at the end (fitted from t = {float(tf[0]):g}, past the first step): {verdict}")

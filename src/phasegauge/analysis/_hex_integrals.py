@@ -78,7 +78,7 @@ from ..model.corners import corner_sum
 from ..model.simplices import _split_plan
 from ._sums import dot
 from ._signed_distance import _ContourGeometry, _signed_distance, _whole_cell_pieces
-from ._width_integrals import _SplitBand, _band_volume
+from ._width_integrals import NEAR_BAND, _SplitBand, _band_volume
 
 #: cells per chunk (the chunk's temporaries, about 150 arrays of this many floats, stay in cache)
 _CELL_CHUNK = 1 << 12
@@ -192,7 +192,10 @@ class _HexCells:
         self.known = np.zeros(mesh.n_points, dtype=bool)
         self.need = np.zeros(mesh.n_points, dtype=bool)
         self.band = self.mixed = self.total_gradient = 0.0
-        self.chunks = []  # (tetrahedra, block connectivity, its rows (n,), face codes (n,), weights (n_tetrahedra, n))
+        # (tetrahedra, block connectivity, its rows (n,), face codes (n,), six times the measure times grad c
+        # (3, n_tetrahedra, n)) of the cells where c varies
+        self.chunks = []
+        self.columns = columns
         # (block connectivity, its rows (n,), weights (n,), offsets of the cells summed together) of
         # cells by quadrature
         self.smooth_chunks = []
@@ -227,37 +230,32 @@ class _HexCells:
                 for lo in range(0, chosen.size, _CELL_CHUNK):
                     part, part_codes = chosen[lo:lo + _CELL_CHUNK], chosen_codes[lo:lo + _CELL_CHUNK]
                     low_part, high_part = low[start + part], high[start + part]
-                    weights = self._chunk(tets, block.connectivity[part], part_codes, clipped, columns,
-                                          low_part, high_part)
-                    self.chunks.append((tets, block.connectivity, part, part_codes, weights))
+                    weights, gradients = self._chunk(tets, block.connectivity[part], part_codes, clipped, columns,
+                                                     low_part, high_part)
+                    varying = (weights > 0).any(axis=0)
+                    self.chunks.append((tets, block.connectivity, part[varying], part_codes[varying],
+                                        gradients[:, :, varying]))
         # the corners of cells where c varies: those of the cells where it varies on every
         # tetrahedron are all known, the others were marked as they came
         self.need |= self.known
 
     def _chunk(self, tets, conn, codes, values, columns, low, high) -> np.ndarray:
-        """Integrals of one chunk of cells added up; returns the tetrahedra's gradient weights.
+        """Integrals of one chunk of cells added up; returns the tetrahedra's gradient weights and
+        gradients.
 
-        The weights are kept as six times the measure times |grad c| (``_SIX``), the volumes as
-        six times the measure: the factor is taken out of the sums once.
+        The weights are kept as six times the measure times |grad c| (``_SIX``), the gradients as six
+        times the measure times grad c (shape (3, n_tetrahedra, n)), the volumes as six times the
+        measure: the factor is taken out of the sums once.
         """
         ids = [conn[:, q] for q in range(8)]
         v = [values[i] for i in ids]
-        X = [[col[i] for col in columns] for i in ids]
-        centre = [(((((((X[0][d] + X[1][d]) + X[2][d]) + X[3][d]) + X[4][d]) + X[5][d]) + X[6][d]) + X[7][d]) / 8.0
-                  for d in range(3)]
         vm = (((((((v[0] + v[1]) + v[2]) + v[3]) + v[4]) + v[5]) + v[6]) + v[7]) / 8.0
-        # vertices from the cell centre: corners 0-7 here, the face centres 8-13 when a
-        # tetrahedron reads them
-        e = [[X[q][d] - centre[d] for d in range(3)] for q in range(8)] + [None] * 6
-        v += [None] * 6
-        e = _seen_corners(e, codes, tets)  # (the same arrays, or picked by face: 8 of them per cell)
-        v = _seen_corners(v, codes, tets)
+        e = _cone_vectors(conn, codes, tets, columns)
+        v = _seen_corners(v + [None] * 6, codes, tets)
         dv, v2 = [None] * len(v), [None] * len(v)
         for f in sorted({f for _, _, f in tets if 8 <= f < _TURNED}):
             a, b, c, d = _HEX_FACES[f - 8]
-            e[f] = [(((X[a][k] + X[b][k]) + X[c][k]) + X[d][k]) / 4.0 - centre[k] for k in range(3)]
             v[f] = (((v[a] + v[b]) + v[c]) + v[d]) / 4.0
-        del X
         pairs, apexes = {}, {}
 
         def pair(a, b):
@@ -287,6 +285,7 @@ class _HexCells:
         n = conn.shape[0]
         weights = np.empty((len(tets), n))
         volumes = np.empty((len(tets), n))
+        gradients = np.empty((3, len(tets), n))  # adj(E) dv / |det E|: six times the measure times grad c
         mixed = np.zeros(n)
         for t, (a, b, f) in enumerate(tets):
             # tetrahedron (a, b, f, m) from m: adj(E) dv = dv_a (e_b x e_f) + dv_b (e_f x e_a) + dv_f (e_a x e_b)
@@ -298,6 +297,8 @@ class _HexCells:
             gy = (fz * wx - fx * wz) + uf * py
             gz = (fx * wy - fy * wx) + uf * pz
             measure = np.abs(fx * px + fy * py + fz * pz, out=volumes[t])  # six times the measure
+            for k, g in enumerate((gx, gy, gz)):
+                np.divide(g, measure, out=gradients[k, t], where=measure != 0)
             gx *= gx
             gy *= gy
             gx += gy
@@ -310,6 +311,7 @@ class _HexCells:
             q *= measure
             mixed -= q
         weights[volumes == 0] = 0.0  # a flat tetrahedron has no gradient (as the split's)
+        gradients[:, volumes == 0] = 0.0
         self.mixed += float(mixed.sum()) / (20.0 * _SIX)
         self.total_gradient += float(weights.sum()) / _SIX
         self.count += len(tets) * n
@@ -338,7 +340,7 @@ class _HexCells:
                                                                 np.concatenate([vc[b] for _, b, _ in tets]),
                                                                 np.concatenate([vc[f] for _, _, f in tets]),
                                                                 np.tile(vm[cut], len(tets))]) / _SIX
-        return weights
+        return weights, gradients
 
     def _smooth(self, connectivity, part, codes, values, columns, start, inside, segments):
         """Integrals of cells no band edge crosses, by the cell's trilinear map (see the module notes);
@@ -349,15 +351,7 @@ class _HexCells:
         ids = [conn[:, q] for q in range(8)]
         v = [values[i] for i in ids]
         X = [[col[i] for col in columns] for i in ids]
-        # 4 dx/dxi_k at the cell centre (corner sums of the faces xi_k = 1 less those of xi_k = 0)
-        # and 4 dc/dxi_k: grad c = J^-T dc/dxi by Cramer's rule (the factors 4 cancel)
-        j, b = [], []
-        for high_face, low_face in _XI_FACES:
-            j.append([corner_sum(X[q][d] for q in high_face) - corner_sum(X[q][d] for q in low_face)
-                      for d in range(3)])
-            b.append(corner_sum(v[q] for q in high_face) - corner_sum(v[q] for q in low_face))
-        a0, a1, a2 = _cross(j[1], j[2]), _cross(j[2], j[0]), _cross(j[0], j[1])
-        det = _dot(j[0], a0)
+        det, (g,) = _centre_gradients(X, [v])
         volume = self.mesh.cell_measures[start + part]
         if inside.any():
             split = _split_volumes([[x[inside] for x in corner] for corner in X], codes[inside],
@@ -366,14 +360,11 @@ class _HexCells:
                 if hi > lo:
                     self.band += float(split[lo:hi].sum())
         del X
-        np.abs(det, out=det)
-        g2 = 0.0
-        for d in range(3):
-            g = b[0] * a0[d] + b[1] * a1[d] + b[2] * a2[d]
-            g2 = g2 + g * g
-        weights = np.zeros(part.size)
-        ok = det > 0
-        np.divide(np.sqrt(g2) * volume, det, out=weights, where=ok)
+        ok = det != 0
+        gradients = [np.divide(x * volume, det, out=np.zeros(part.size), where=ok) for x in g]  # V grad c
+        weights = np.abs(det)
+        np.divide(np.sqrt(sum(x * x for x in g)) * volume, weights, out=weights, where=ok)
+        weights[~ok] = 0.0
         mean = corner_sum(v) / 8.0
         squares = corner_sum(x * x for x in v) / 8.0
         # int c (1 - c): the corners' mean of c^2 with weight 1/3, the centre's with 2/3 (exact for
@@ -386,41 +377,46 @@ class _HexCells:
         varying = weights > 0
         for i in ids:
             self.known[i[varying]] = True
-        self.smooth_chunks.append((connectivity, part[varying], weights[varying], _within(varying, segments)))
+        self.smooth_chunks.append((connectivity, part[varying], [x[varying] for x in gradients],
+                                   _within(varying, segments)))
 
     def moments(self, dist: np.ndarray) -> np.ndarray:
         """(m0, m1, m2) over the cells whose eight corner distances are known (by the quadrature's
-        rule where the integrals took it, else over their tetrahedra)."""
+        rule where the integrals took it, else over their tetrahedra), weighted by the measure times
+        grad c . grad d (as :func:`._width_integrals._normal_weights`)."""
         m0 = m1 = m2 = 0.0
-        for connectivity, part, weights, segments in self.smooth_chunks:  # the same rule as int c (1 - c)
-            d, dm = _corner_distances(dist, connectivity[part])
+        columns = self.columns
+        for connectivity, part, gradients, segments in self.smooth_chunks:  # the same rule as int c (1 - c)
+            conn = connectivity[part]
+            d, dm = _corner_distances(dist, conn)
             ok = np.isfinite(dm)
+            det, (g,) = _centre_gradients([[col[conn[:, q]] for col in columns] for q in range(8)], [d])
+            w = np.divide(_dot(gradients, g), det, out=np.zeros(part.size), where=det != 0)[ok]
             squares = corner_sum(x * x for x in d) / 8.0
-            w, dm = weights[ok], dm[ok]
+            dm = dm[ok]
             second = squares[ok] / 3.0 + (2.0 / 3.0) * dm * dm
             for lo, hi in _pairs(_within(ok, segments)):  # each segment's sums on their own
                 m0 += _SIX * float(w[lo:hi].sum())
                 m1 += 4.0 * _SIX * dot(w[lo:hi], dm[lo:hi])
                 m2 += 20.0 * _SIX * dot(w[lo:hi], second[lo:hi])
-        for tets, connectivity, part, codes, weights in self.chunks:
+        for tets, connectivity, part, codes, gradients in self.chunks:
             # the chunk's corners gathered again: 8 bytes a cell kept, not 64
-            d, dm = _corner_distances(dist, connectivity[part])
+            conn = connectivity[part]
+            d, dm = _corner_distances(dist, conn)
             ok = np.isfinite(dm)
             if not ok.all():
                 if not ok.any():
                     continue
-                d = [x[ok] for x in d]
-                dm = dm[ok]
-                weights = weights[:, ok]
-                codes = codes[ok]
+                conn, d, dm = conn[ok], [x[ok] for x in d], dm[ok]
+                gradients, codes = gradients[:, :, ok], codes[ok]
+            e = _cone_vectors(conn, codes, tets, columns)
             d += [None] * 6
             for f in {f for _, _, f in tets if 8 <= f < _TURNED}:
-                a, b, c, e = _HEX_FACES[f - 8]
-                d[f] = (((d[a] + d[b]) + d[c]) + d[e]) / 4.0
+                a, b, c, h = _HEX_FACES[f - 8]
+                d[f] = (((d[a] + d[b]) + d[c]) + d[h]) / 4.0
             d = _seen_corners(d, codes, tets)
             squares = [None if x is None else x * x for x in d]
             pairs, apexes = {}, {}
-            m0 += float(weights.sum())
             for t, (a, b, f) in enumerate(tets):
                 key = (a, b) if a < b else (b, a)
                 if key not in pairs:  # sums of the distances and of their squares, once per pair
@@ -428,7 +424,15 @@ class _HexCells:
                 if f not in apexes:
                     apexes[f] = (d[f] + dm, squares[f] + dm * dm)
                 (pair_sum, pair_squares), (apex_sum, apex_squares) = pairs[key], apexes[f]
-                w = weights[t]
+                # adj(E) dd = e_f x W + dd_f P, as c's (P = e_a x e_b, W = dd_b e_a - dd_a e_b, dd = d - dm, the
+                # pair in the same order: both change sign with it)
+                a, b = key
+                da, db, df = d[a] - dm, d[b] - dm, d[f] - dm
+                p = _cross(e[a], e[b])
+                wv = [db * x - da * y for x, y in zip(e[a], e[b])]
+                g = [x + df * y for x, y in zip(_cross(e[f], wv), p)]
+                w = _dot(gradients[:, t], g)
+                m0 += float(w.sum())
                 total = pair_sum + apex_sum
                 m1 += dot(w, total)
                 total *= total
@@ -438,14 +442,46 @@ class _HexCells:
         return np.array([m0, m1 / 4.0, m2 / 20.0]) / _SIX
 
 
+def _cone_vectors(conn: np.ndarray, codes: np.ndarray, tets: tuple, columns: list) -> list:
+    """The vertices of the cells' tetrahedra from their centres (per vertex 0-37 a list of 3 arrays, None
+    where no tetrahedron reads it): corners 0-7, the face centres 8-13 the tetrahedra read, and the faces'
+    corners as their cuts see them (:func:`_seen_corners`)."""
+    X = [[col[conn[:, q]] for col in columns] for q in range(8)]
+    centre = [(((((((X[0][d] + X[1][d]) + X[2][d]) + X[3][d]) + X[4][d]) + X[5][d]) + X[6][d]) + X[7][d]) / 8.0
+              for d in range(3)]
+    e = [[X[q][d] - centre[d] for d in range(3)] for q in range(8)] + [None] * 6
+    e = _seen_corners(e, codes, tets)  # (the same arrays, or picked by face: 8 of them per cell)
+    for f in sorted({f for _, _, f in tets if 8 <= f < _TURNED}):
+        a, b, c, d = _HEX_FACES[f - 8]
+        e[f] = [(((X[a][k] + X[b][k]) + X[c][k]) + X[d][k]) / 4.0 - centre[k] for k in range(3)]
+    return e
+
+
+def _centre_gradients(X: list, fields: list) -> tuple:
+    """det J and per field det J times its gradient at the cells' centres (J^-T dv/dxi by Cramer's rule).
+
+    ``X``: per corner its three coordinate arrays; ``fields``: per field its corner values. 4 dx/dxi_k at the
+    centre are the corner sums of the faces xi_k = 1 less those of xi_k = 0, and so are 4 dv/dxi_k (the
+    factors 4 cancel)."""
+    j = [[corner_sum(X[q][d] for q in high) - corner_sum(X[q][d] for q in low) for d in range(3)]
+         for high, low in _XI_FACES]
+    a0, a1, a2 = _cross(j[1], j[2]), _cross(j[2], j[0]), _cross(j[0], j[1])
+    out = []
+    for v in fields:
+        b = [corner_sum(v[q] for q in high) - corner_sum(v[q] for q in low) for high, low in _XI_FACES]
+        out.append([b[0] * a0[d] + b[1] * a1[d] + b[2] * a2[d] for d in range(3)])
+    return _dot(j[0], a0), out
+
+
 class _HexBand:
     """Width integrals on a mesh with coned hexahedra: those cell by cell, the rest on the split.
 
     Same attributes and methods as :class:`._width_integrals._SplitBand`.
     """
 
-    def __init__(self, mesh: Mesh, clipped: np.ndarray, active: np.ndarray, rows: list, low, high):
-        self.mesh, self.values = mesh, clipped
+    def __init__(self, mesh: Mesh, clipped: np.ndarray, active: np.ndarray, rows: list, low, high, *,
+                 near_band: float = NEAR_BAND):
+        self.mesh, self.values, self.near_band = mesh, clipped, near_band
         mine = []
         rest = active.copy()
         for (local, codes), start in zip(rows, mesh.block_offsets[:-1]):
@@ -453,7 +489,7 @@ class _HexBand:
             mine.append((local[keep], codes[keep]))
             rest[start + local] = False
         self.cells = _HexCells(mesh, clipped, mine, low, high)
-        self.rest = _SplitBand(mesh, clipped, rest) if rest.any() else None
+        self.rest = _SplitBand(mesh, clipped, rest, near_band=near_band) if rest.any() else None
         self.count = self.cells.count + (self.rest.count if self.rest else 0)
         self.band = self.cells.band + (self.rest.band if self.rest else 0.0)
         self.mixed = self.cells.mixed + (self.rest.mixed if self.rest else 0.0)
@@ -477,7 +513,7 @@ class _HexBand:
             need = need & ~np.isfinite(dist)
         used = np.flatnonzero(need)
         dist[used] = _signed_distance(self.mesh.coordinates[used], self.values[used], geometry,
-                                      self.mesh.plane_axes, level, bound, threads=threads)
+                                      self.mesh.plane_axes, level, bound, near_band=self.near_band, threads=threads)
         return dist
 
     def moments(self, dist: np.ndarray) -> tuple[float, float, float]:

@@ -34,7 +34,7 @@ from ._profile_fits import PROFILE_COLUMNS, WIDTH_PER_EPS, _profile_table
 from ._hex_integrals import _HexBand, coned_hexahedra
 from ._signed_distance import MeasuredDistances, _ContourGeometry, _whole_cell_pieces
 from ._bulk_plateaus import bulk_plateaus
-from ._width_integrals import _LOW, _GridBand, _SplitBand, _grid_tetrahedra
+from ._width_integrals import _LOW, NEAR_BAND, _GridBand, _SplitBand, _grid_tetrahedra
 
 __all__ = ["interface_metrics", "interface_profile_table", "prepare_widths", "PreparedWidths", "METRIC_KEYS",
            "PROFILE_COLUMNS", "WIDTH_PER_EPS"]
@@ -50,7 +50,8 @@ METRIC_KEYS = ("interface_size", "interface_width", "interface_width_cells", "wi
                "interface_eps", "width_second_moment", "interface_variance", "width_profile_median",
                "width_profile_p90", "widest_x", "widest_y", "widest_z",
                "under_resolved_interface_fraction", "interface_cells_across", "bulk_c_low", "bulk_c_high",
-               "width_cell_data_bias", "interface_near_boundary_fraction", "interface_near_interface_fraction")
+               "width_cell_data_bias", "interface_near_boundary_fraction", "interface_near_interface_fraction",
+               "bulk_noise_left_out")
 
 #: bias of the widths on point values rebuilt from cell data, per (h / eps)^2 (measured on cell
 #: averages of the logistic profile: +0.46 / +1.4 / +6.3 / +30 % at h / eps = 1/4, 1/2, 1, 2)
@@ -143,7 +144,9 @@ class PreparedWidths:
             self.cell_mixed = _cell_mixed(mesh, indicator, low, high, tail, near)
             if near is not None and layout is None:  # the extremes of the values the integrals read
                 extremes = corner_extremes(mesh, self.clipped)
+            self.noise_left_out = near is not None
             self.integrals = self._integrals(band, layout, extremes, tail, rescaled=near is not None)
+            self._moment_plan, self._moments = (band, layout, tail), None  # see moment_integrals
         self.contour, self.geometry, self.pieces = found if side is None else side.result()
 
     def _rescaled(self, values: np.ndarray) -> np.ndarray:
@@ -194,18 +197,33 @@ class PreparedWidths:
         self.clipped = np.where(beyond, np.where(self.clipped < level, 0.0, 1.0), self.clipped)
         return near
 
-    def _integrals(self, band, layout, extremes, tail: float, *, rescaled: bool = False):
+    @property
+    def moment_integrals(self):
+        """The band integrals the second moment reads (formed when first read): over the values between the bulk
+        values as written, not clipped nor with bulk noise left out (its weight grad c . grad d takes noise at zero
+        mean, which those would bias); the widths' own where those read the same values."""
+        if self._moments is None:
+            (low, high, _), (band, layout, tail) = self.plateaus, self._moment_plan
+            values = self.c_point if (low, high) == (0.0, 1.0) else (self.c_point - low) / (high - low)
+            self._moments = self.integrals if np.array_equal(values, self.clipped, equal_nan=True) else \
+                self._integrals(band, layout, None if layout is not None else corner_extremes(self.mesh, values),
+                                tail, rescaled=True, values=values, near_band=-np.inf)
+        return self._moments
+
+    def _integrals(self, band, layout, extremes, tail: float, *, rescaled: bool = False, values=None,
+                   near_band: float = NEAR_BAND):
         mesh, (low, high, _) = self.mesh, self.plateaus
+        values = self.clipped if values is None else values
         if band is _GridBand:
-            return _GridBand(mesh, self.clipped, layout, cutoff=tail)
+            return _GridBand(mesh, values, layout, cutoff=tail, near_band=near_band)
         # the extremes of the clipped values are the clipped extremes: those of c will do
         lo, hi = extremes
         if (low, high) != (0.0, 1.0) and not rescaled:
             lo, hi = (lo - low) / (high - low), (hi - low) / (high - low)
         active = (hi > tail) & (lo < 1.0 - tail)
         if band is _HexBand:  # hexahedra coned on all faces: integrated cell by cell
-            return _HexBand(mesh, self.clipped, active, coned_hexahedra(mesh), lo, hi)
-        return _SplitBand(mesh, self.clipped, active)
+            return _HexBand(mesh, values, active, coned_hexahedra(mesh), lo, hi, near_band=near_band)
+        return _SplitBand(mesh, values, active, near_band=near_band)
 
 
 def _band_kind(mesh: Mesh, layout):
@@ -329,8 +347,10 @@ def interface_metrics(mesh: Mesh, indicator, *, level: float = 0.5, contour: Con
         ``width_second_moment`` : float, length; 5.889 sqrt(3 var) / pi, the
         logistic 5-95 % thickness with the same variance of dc/dn.
         ``interface_variance`` : float, length squared; variance of the
-        normal-distance distribution weighted by |grad c| (of dc/dn), the
-        quantity :func:`diffusion_audit` fits.
+        normal-distance distribution of dc/dn (weighted by grad c . grad d,
+        d the signed distance, over the values between the bulk values as
+        written: no clip, no bulk noise left out), the quantity
+        :func:`diffusion_audit` fits.
         ``width_profile_median``, ``width_profile_p90`` : float, length;
         length/area-weighted median and 90th percentile of the local logistic
         fits of c against normal distance (:func:`interface_profile_table`),
@@ -355,6 +375,9 @@ def interface_metrics(mesh: Mesh, indicator, *, level: float = 0.5, contour: Con
         way, within the second moment's reach along its normal (a thin film,
         a ligament, the far side of a small drop: its profile is cut halfway,
         :func:`._facing_interface.facing_interface_share`).
+        ``bulk_noise_left_out`` : float; 1 where the bulk noise was left out
+        of the widths (the points beyond the contour's reach read their
+        side's bulk), else 0.
         All NaN when c does not cross ``level``.
     MeasuredDistances or None
         With ``return_distances`` only: ``point`` (signed distances at the
@@ -393,9 +416,12 @@ def interface_metrics(mesh: Mesh, indicator, *, level: float = 0.5, contour: Con
     Cells whose corners all lie within 1e-6 of 0 or of 1 are skipped (with bulk
     values off 0 and 1, within :func:`bulk_plateaus`' ``tail``, three spreads of
     the bulk's noise read beyond the profile's tail); the
-    second moment is taken out to max(10 eps, 4 h) from the contour (the
-    logistic tails beyond hold 0.3 % of the variance: a small negative bias
-    that cancels in the diffusion audit's relative terms).
+    second moment is taken out to max(10 eps, 4 h) from the contour, eps from
+    the band volume (the logistic tails beyond hold 0.3 % of the variance: a
+    small negative bias that cancels in the diffusion audit's relative terms).
+    Its weight is the measure times grad c . grad d (d the signed distance, linear
+    on each simplex like c) over the values between the bulk values as written (not
+    clipped, no bulk noise left out): noise adds to it at zero mean.
 
     For the logistic profile c = 1/2 (1 + tanh(n / (2 eps))): band volume per
     area over a < c < 1 - a is 2 eps ln((1 - a) / a); int c(1 - c) dn = eps
@@ -410,7 +436,8 @@ def interface_metrics(mesh: Mesh, indicator, *, level: float = 0.5, contour: Con
     points beyond the contour's reach then read their side's bulk
     (:func:`._bulk_noise.beyond_reach_points`), which keeps ``interface_width``
     within 3 % of its noise-free value up to a spread of 3 %; beyond 4 % a
-    :class:`PhasegaugeWarning`.
+    :class:`PhasegaugeWarning`. ``bulk_noise_left_out`` says whether a step did
+    so; the second moment does not read it.
 
     References
     ----------
@@ -528,12 +555,15 @@ def _metrics(prepared: PreparedWidths, max_samples: int, threads: int = 1, *, di
     h = mesh.cell_sizes_of(contour.cells)
     h_interface = float((sizes * h).sum() / size)
     # (eps of the band volume: a low-level cloud of c away from the interface inflates the
-    # threshold-free eps, and would widen the range that then picks up more of that cloud)
-    band_eps = min(eps, width / WIDTH_PER_EPS) if np.isfinite(eps) else width / WIDTH_PER_EPS
+    # threshold-free eps, and would widen the range that then picks up more of that cloud; bulk noise
+    # lowers it, 0.7 eps at 0.8 % of the jump, and would narrow the range, cutting the tails)
+    band_eps = width / WIDTH_PER_EPS
     bound = max(_MOMENT_RANGE * band_eps, 4.0 * h_interface) if np.isfinite(band_eps) else np.inf
     searched = geometry if prepared.pieces is None else prepared.pieces
     dist = integrals.distances(searched, prepared.width_level, bound, threads)
-    m0, m1, m2 = integrals.moments(dist)
+    moments = prepared.moment_integrals
+    m0, m1, m2 = moments.moments(dist if moments is integrals
+                                 else moments.distances(searched, prepared.width_level, bound, threads))
     variance = m2 / m0 - (m1 / m0) ** 2 if m0 > 0 else float("nan")
     # cells of the contour
     g_el = cell_gradient(mesh, prepared.clipped, cells=contour.cells)
@@ -575,5 +605,6 @@ def _metrics(prepared: PreparedWidths, max_samples: int, threads: int = 1, *, di
         # the share whose profile another interface, facing it, cuts within that reach (a thin film)
         "interface_near_interface_fraction": facing_interface_share(geometry.centroids, geometry.normals, sizes,
                                                                     float(bound), h_interface),
+        "bulk_noise_left_out": float(prepared.noise_left_out),
     }
     return metrics, table, measured

@@ -452,8 +452,9 @@ def _centre_split_distance(points: np.ndarray, values: np.ndarray, wanted: np.nd
 
 
 def _vertex_distances(split: SimplexSplit, wanted: np.ndarray, geometry: _ContourGeometry, plane_axes,
-                      level: float, bound: float, threads: int = 1) -> np.ndarray:
-    """Signed distances at the ``wanted`` split vertices (NaN elsewhere and beyond ``bound``).
+                      level: float, bound: float, threads: int = 1, near_band: float = 0.01) -> np.ndarray:
+    """Signed distances at the ``wanted`` split vertices (NaN elsewhere and beyond ``bound``; ``near_band`` as
+    :func:`_signed_distance` takes it).
 
     Computed at mesh points only: an added face or cell centre gets the mean of
     its corners' distances, as it got the mean of their coordinates and values
@@ -467,5 +468,5 @@ def _vertex_distances(split: SimplexSplit, wanted: np.ndarray, geometry: _Contou
     used = np.nonzero(need)[0]
     dist = np.full(n, np.nan)
     dist[used] = _signed_distance(split.points[used], split.point_values[used], geometry,
-                                  plane_axes, level, bound, threads=threads)
+                                  plane_axes, level, bound, near_band=near_band, threads=threads)
     return split.centre_means(dist)

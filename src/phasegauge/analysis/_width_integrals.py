@@ -40,6 +40,10 @@ _CHUNK = 1 << 15
 _LOW, _HIGH = 0.05, 0.95
 #: cell types that are their own simplex split (integrated straight from the connectivity)
 _DIRECT_TYPES = ("triangle", "tetra")
+#: the distances of points with c within this of a bulk search a thinned set of the contour's elements
+#: (:func:`._signed_distance._signed_distance`); the second moment's integrals search every element at every
+#: point (-inf): with noise, which points are near a bulk follows the noise, and the thinned set's error with it
+NEAR_BAND = 0.01
 
 
 def _chunks(n: int, size: int = _CHUNK):
@@ -56,34 +60,42 @@ def _simplex_gradients(columns: list, ids: list, values: list):
     rule, |grad c| = |adj(E) dv| / |det E| (zero on a degenerate simplex); the
     determinant is d! times the signed measure.
     """
+    size, factorial, (g,) = _adjugate_products(columns, ids, [values])
+    norm = np.sqrt(sum(x * x for x in g))
+    gnorm = np.divide(norm, size, out=np.zeros_like(norm), where=size != 0)
+    return size / factorial, gnorm
+
+
+def _normal_weights(columns: list, ids: list, values: list, d: list) -> np.ndarray:
+    """measure x grad c . grad d per simplex, c and d linear (vertex values by corner; zero on a degenerate
+    simplex): (adj(E) dc) . (adj(E) dd) / (d! |det E|)."""
+    size, factorial, (gc, gd) = _adjugate_products(columns, ids, [values, d])
+    dot = sum(a * b for a, b in zip(gc, gd))
+    return np.divide(dot, factorial * size, out=np.zeros_like(dot), where=size != 0)
+
+
+def _adjugate_products(columns: list, ids: list, fields: list):
+    """|det E|, d! and per field adj(E) dv by axis, E the simplices' edge vectors from their first vertex
+    and dv the field's differences along them (``fields``: vertex values by corner, each)."""
     x0 = [col[ids[0]] for col in columns]
     e = [[col[i] - start for col, start in zip(columns, x0)] for i in ids[1:]]
-    dv = [v - values[0] for v in values[1:]]
+    out = []
     if len(columns) == 2:
         (ax, ay), (bx, by) = e
         det = ax * by - ay * bx
-        gx = dv[0] * by - dv[1] * ay
-        gy = dv[1] * ax - dv[0] * bx
-        norm = np.sqrt(gx * gx + gy * gy)
-        factorial = 2.0
-    else:
-        (ax, ay, az), (bx, by, bz), (cx, cy, cz) = e
-        p, q, r = by * cz - bz * cy, bz * cx - bx * cz, bx * cy - by * cx  # b x c
-        det = ax * p + ay * q + az * r
-        gx, gy, gz = dv[0] * p, dv[0] * q, dv[0] * r
-        p, q, r = cy * az - cz * ay, cz * ax - cx * az, cx * ay - cy * ax  # c x a
-        gx += dv[1] * p
-        gy += dv[1] * q
-        gz += dv[1] * r
-        p, q, r = ay * bz - az * by, az * bx - ax * bz, ax * by - ay * bx  # a x b
-        gx += dv[2] * p
-        gy += dv[2] * q
-        gz += dv[2] * r
-        norm = np.sqrt(gx * gx + gy * gy + gz * gz)
-        factorial = 6.0
-    size = np.abs(det)
-    gnorm = np.divide(norm, size, out=np.zeros_like(norm), where=size != 0)
-    return size / factorial, gnorm
+        for values in fields:
+            dv = [v - values[0] for v in values[1:]]
+            out.append((dv[0] * by - dv[1] * ay, dv[1] * ax - dv[0] * bx))
+        return np.abs(det), 2.0, out
+    (ax, ay, az), (bx, by, bz), (cx, cy, cz) = e
+    bc = (by * cz - bz * cy, bz * cx - bx * cz, bx * cy - by * cx)  # b x c
+    ca = (cy * az - cz * ay, cz * ax - cx * az, cx * ay - cy * ax)  # c x a
+    ab = (ay * bz - az * by, az * bx - ax * bz, ax * by - ay * bx)  # a x b
+    det = ax * bc[0] + ay * bc[1] + az * bc[2]
+    for values in fields:
+        dv = [v - values[0] for v in values[1:]]
+        out.append(tuple(dv[0] * p + dv[1] * q + dv[2] * r for p, q, r in zip(bc, ca, ab)))
+    return np.abs(det), 6.0, out
 
 
 def _band_volume(measures: np.ndarray, values: list) -> float:
@@ -167,7 +179,7 @@ def _fraction_of(ordered: list, t: float) -> np.ndarray:
 def _moment_sums(weights: np.ndarray, d: list) -> tuple[float, float, float]:
     """Sums of w, w mean(d) and w (int d^2 / measure) over simplices whose vertex distances are all known.
 
-    ``weights`` is measure x |grad c| per simplex, ``d`` the vertex
+    ``weights`` is measure x grad c . grad d per simplex (:func:`_normal_weights`), ``d`` the vertex
     distances by corner (NaN where not known).
     """
     k = len(d)
@@ -193,8 +205,8 @@ class _SplitBand:
         Vertices of the simplices where c is not constant.
     """
 
-    def __init__(self, mesh: Mesh, clipped: np.ndarray, active: np.ndarray):
-        self.mesh = mesh
+    def __init__(self, mesh: Mesh, clipped: np.ndarray, active: np.ndarray, *, near_band: float = NEAR_BAND):
+        self.mesh, self.near_band = mesh, near_band
         if all(block.cell_type in _DIRECT_TYPES for block in mesh.blocks):
             # the cells are their own split: read them block by block, no copy
             self.split = SimplexSplit(mesh.coordinates, np.zeros((0, mesh.dimension + 1), np.int64),
@@ -204,7 +216,7 @@ class _SplitBand:
             self.split = split_cells(mesh, active, values=clipped, quads="centre")
             self.active = None
         values = self.split.values
-        columns = [np.ascontiguousarray(self.split.coordinates[:, i]) for i in range(mesh.dimension)]
+        self.columns = columns = [np.ascontiguousarray(self.split.coordinates[:, i]) for i in range(mesh.dimension)]
         weights = []
         self.known = np.zeros(values.shape[0], dtype=bool)
         self.band = self.mixed = 0.0
@@ -259,18 +271,25 @@ class _SplitBand:
             if centres is not None and self.active is not None:
                 reach = mesh.memo("split_centre_reach", lambda: _centre_reach(mesh.coordinates, centres))
                 return _centre_split_distance(mesh.coordinates, self.split.point_values, self.known, centres,
-                                              geometry, mesh.plane_axes, level, bound, reach, threads=threads)
+                                              geometry, mesh.plane_axes, level, bound, reach,
+                                              near_band=self.near_band, threads=threads)
         return _vertex_distances(self.split, self.known, geometry, self.mesh.plane_axes, level, bound,
-                                 threads=threads)
+                                 threads=threads, near_band=self.near_band)
 
     def moments(self, dist: np.ndarray) -> tuple[float, float, float]:
-        """(m0, m1, m2) of :func:`_moment_sums` over all simplices."""
+        """(m0, m1, m2) of :func:`_moment_sums` over all simplices where c varies, weighted by
+        :func:`_normal_weights`."""
         m = np.zeros(3)
-        start = 0
+        start, values = 0, self.split.values
         for ids in self._pieces():
             n = ids[0].size
-            m += _moment_sums(self.weights[start:start + n], [dist[i] for i in ids])
+            varying = self.weights[start:start + n] > 0
             start += n
+            if not varying.any():
+                continue
+            ids = [i[varying] for i in ids]
+            d = [dist[i] for i in ids]
+            m += _moment_sums(_normal_weights(self.columns, ids, [values[i] for i in ids], d), d)
         return tuple(float(x) for x in m)
 
     def at_points(self, dist: np.ndarray):
@@ -322,9 +341,10 @@ class _GridBand:
     grid points in C order (``RegularGrid.point_shape``).
     """
 
-    def __init__(self, mesh: Mesh, clipped: np.ndarray, layout: dict, *, cutoff: float = _TAIL):
+    def __init__(self, mesh: Mesh, clipped: np.ndarray, layout: dict, *, cutoff: float = _TAIL,
+                 near_band: float = NEAR_BAND):
         grid = mesh.regular_grid
-        self.mesh, self.grid, self.layout = mesh, grid, layout
+        self.mesh, self.grid, self.layout, self.near_band = mesh, grid, layout, near_band
         values = np.empty(mesh.n_points)
         values[grid.point_index] = clipped
         self.values = values
@@ -342,7 +362,7 @@ class _GridBand:
         self.base = cells + i * (ny + nz + 1) + j  # flat index of each cell's lowest point
         del cells
         spacing = [np.diff(axis_values) for axis_values in grid.axes]
-        h = [spacing[0][i], spacing[1][j], spacing[2][k]]
+        self.h = h = [spacing[0][i], spacing[1][j], spacing[2][k]]  # per cell (the moments read them again)
         del i, j, k
         n = self.base.size
         self.count = 6 * n
@@ -419,17 +439,24 @@ class _GridBand:
             points[:, d] = axis_values[index[d]]
         dist = np.full(self.values.shape[0], np.nan)
         dist[wanted] = _signed_distance(points, self.values[wanted], geometry, self.mesh.plane_axes, level,
-                                        bound, threads=threads)
+                                        bound, near_band=self.near_band, threads=threads)
         return dist
 
     def moments(self, dist: np.ndarray) -> tuple[float, float, float]:
         m = np.zeros(3)
         n = self.base.size
+        edges = self.layout["edges"]
         for part in _chunks(n, _CHUNK // 2):
             base = self.base[part]
             d = [dist[base + step] for step in self.layout["steps"]]
-            for t, (local, _, _) in enumerate(self.layout["tets"]):
-                m += _moment_sums(self.weights[t, part], [d[q] for q in local])
+            c = [self.values[base + step] for step in self.layout["steps"]]
+            h = [x[part] for x in self.h]
+            # grad c . grad d along each cell edge of the paths: (c[b] - c[a]) (d[b] - d[a]) / h^2
+            product = {(a, b): (c[b] - c[a]) * (d[b] - d[a]) / (h[axis] * h[axis]) for (a, b), axis in edges.items()}
+            measures = h[0] * h[1] * h[2] / 6.0
+            for t, (local, _, path) in enumerate(self.layout["tets"]):
+                weights = measures * (product[path[0]] + product[path[1]] + product[path[2]])
+                m += _moment_sums(weights, [d[q] for q in local])
         return tuple(float(x) for x in m)
 
     def at_points(self, dist: np.ndarray):

@@ -43,6 +43,7 @@ class Finding:
         ``open_boundary``,
         ``indicator_overshoot``, ``bulk_plateaus`` (bulk off 0 and 1 read as physics), ``interface_under_resolved``,
         ``width_cell_data_bias``, ``interface_near_boundary``, ``interface_near_interface``, ``diffusivity_per_step``,
+        ``bulk_noise_left_out_changes`` (the bulk noise left out of the widths at some fitted steps only: a note),
         ``free_energy_increase``, ``coarsening``,
         ``droplets_under_resolved``, ``steps_skipped``, the mixture findings
         (``separated_one_phase``, ``mixed_inside_spinodal``, ``bulk_not_measured``, ``level_outside_binodal``,
@@ -366,8 +367,9 @@ def assemble(series, results: list, options, *, notes=(), feed: TrackingFeed | N
         from ..analysis.interface import diffusion_audit
 
         cells = steps["interface_cells_across"].to_numpy() if "interface_cells_across" in steps else None
+        left_out = steps["bulk_noise_left_out"].to_numpy() if "bulk_noise_left_out" in steps else None
         audit = diffusion_audit(steps["time"].to_numpy(), steps["interface_variance"].to_numpy(),
-                                cells_across=cells, physical_diffusivity=options.diffusivity,
+                                cells_across=cells, physical_diffusivity=options.diffusivity, noise_left_out=left_out,
                                 declared_kind=options.interface_kind,
                                 times_are_indices=numbered)
     from ._level_set_run import level_set_audit, level_set_findings
@@ -442,6 +444,14 @@ def findings(steps, droplets, audit: dict, options, skipped: list, *, dimension:
                               "growth_threshold": 0.05}))
     if audit.get("note"):
         found.append(Finding("diffusivity_per_step", "warning", audit["note"], {}))
+    if audit.get("noise_left_out_changes"):
+        changes = int(audit["noise_left_out_changes"])
+        found.append(Finding("bulk_noise_left_out_changes", "note",
+                             f"the bulk noise is left out of the widths at some fitted steps and not at others "
+                             f"({changes} change(s); bulk_noise_left_out in steps.csv): interface_width and "
+                             "width_threshold_free change estimator there, the variance the diffusivity is fitted "
+                             "to does not; compare those widths only between steps of one state",
+                             {"changes": changes}))
     open_domain = "open_boundary" in steps and bool(steps["open_boundary"].astype(bool).any())
     domain = _worst(steps, "domain_volume")
     found += drift_findings(steps, options, open_domain, ROUNDOFF_VOLUME * domain, on_points=on_points,

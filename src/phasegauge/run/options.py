@@ -101,7 +101,7 @@ MORE_STEP_COLUMNS = ("depth", "interface_eps", "width_threshold_free", "interfac
                      "width_profile_median", "width_profile_p90", "widest_x", "widest_y", "widest_z",
                      "under_resolved_interface_fraction", "distance_error_median", "distance_error_p90",
                      "interface_near_boundary_fraction", "interface_near_interface_fraction", "interface_cells_across",
-                     "bulk_c_low", "bulk_c_high",
+                     "bulk_c_low", "bulk_c_high", "bulk_noise_left_out",
                      "width_cell_data_bias", "under_resolved_droplets", "chemical_potential_mean",
                      "chemical_potential_spread_max", "chemical_potential_spread_rms", "free_energy",
                      "gradient_energy", "interfacial_tension", "mixed_volume_fraction", "mean_indicator",
