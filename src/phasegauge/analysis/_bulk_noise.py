@@ -15,7 +15,7 @@ from ..model.corners import corner_extremes
 from ..model.mesh import Mesh
 from ._width_integrals import _HIGH, _LOW
 
-__all__ = ["bulk_spread", "side_deviations", "spread_of", "beyond_reach_points", "NOISE_EDGE_SPREADS", "TOO_NOISY", "SPREAD_SAMPLE"]
+__all__ = ["bulk_spread", "side_deviations", "spread_of", "beyond_reach_points", "between_bulks", "leave_out_noise", "NOISE_EDGE_SPREADS", "TOO_NOISY", "SPREAD_SAMPLE"]
 
 #: the band's own points are told from the bulk's noise where the band edge lies within this many bulk
 #: spreads of the bulk (a spread above 1.25 % of the jump; below it, fewer than 3e-5 of the bulk's points
@@ -152,3 +152,60 @@ def beyond_reach_points(mesh: Mesh, u: np.ndarray, level: float, *,
     for block, start in zip(mesh.blocks, mesh.block_offsets[:-1]):
         within[block.connectivity[near[int(start):int(start) + block.connectivity.shape[0]]].ravel()] = True
     return finite & ~within, near
+
+
+def between_bulks(values: np.ndarray, low: float, high: float) -> np.ndarray:
+    """``values`` between the bulk values ``low`` and ``high``, clipped to [0, 1] (monotone: the cells' corner
+    extremes of the values map to those of the result, with the same rounding)."""
+    if (low, high) == (0.0, 1.0):
+        return np.clip(values, 0.0, 1.0)
+    return np.clip((values - low) / (high - low), 0.0, 1.0)
+
+
+def leave_out_noise(mesh: Mesh, indicator, c_point: np.ndarray, clipped: np.ndarray, plateaus, level: float,
+                    extremes=None):
+    """With bulk noise that reaches the band edge, ``clipped`` (the point values between the bulks, clipped) with
+    the points beyond the contour's reach set to their side's bulk (:func:`beyond_reach_points`), and the cells
+    within reach; else ``clipped`` itself and None.
+
+    The spread is read first over every value near a bulk (a smooth profile's own values count in
+    it too: a small drop with no bulk inside), and where that reaches the band edge again over the
+    values beyond reach alone, which must reach it as well. It warns where the spread of the point values
+    beyond reach, which the widths read (a cell's noise reaches the points averaged over its neighbours:
+    about half of it in 2D), exceeds :data:`TOO_NOISY` of the jump; the cells' spread only leaves out.
+    ``plateaus`` are :func:`._bulk_plateaus.bulk_plateaus`' ``(low, high, tail)``, ``level`` the contour level
+    between them, ``extremes`` the cells' corner extremes of ``c_point`` where the caller has them.
+    """
+    import warnings
+
+    from ..errors import PhasegaugeWarning
+    from ..model.corners import CornerExtremes
+
+    low, high, _ = plateaus
+    u = (c_point - low) / (high - low)
+    cells = None
+    if getattr(indicator, "location", None) == "cell":  # the solver's own values: their noise in full
+        cells = (np.asarray(indicator.cell, dtype=np.float64) - low) / (high - low)
+    # the leave-out reads every side, however few its values (leaving out does no harm); the warning the
+    # sides with enough of them
+    spread = max(bulk_spread(u, level, least=1), 0.0 if cells is None else bulk_spread(cells, level, least=1))
+    if not NOISE_EDGE_SPREADS * spread > _LOW:
+        return clipped, None
+    if extremes is not None:  # those of c: the clipped values' are theirs mapped (monotone, the same rounding)
+        extremes = CornerExtremes(*(between_bulks(part, low, high) for part in extremes))
+    beyond, near = beyond_reach_points(mesh, clipped, level, extremes=extremes)
+    if not near.any():  # no crossing to reach from
+        return clipped, None
+    deviations = side_deviations(u[beyond], level)
+    read = spread_of(deviations)  # the point values the widths read: the warning's
+    spread = max(spread_of(deviations, least=1),
+                 0.0 if cells is None else bulk_spread(cells[~near], level, least=1))
+    if read > TOO_NOISY:
+        warnings.warn(PhasegaugeWarning(
+            f"the bulk values scatter by {100 * read:.1f} % of the jump between the phases "
+            f"({high - low:.3g}; sd as scaled MAD), beyond the {100 * TOO_NOISY:.0f} % up to which the "
+            "interface widths are told from such noise: they read high; average the field (over time, "
+            "or over more particles) before measuring, or read no width before the phases separate"), stacklevel=3)
+    if not NOISE_EDGE_SPREADS * spread > _LOW:
+        return clipped, None
+    return np.where(beyond, np.where(clipped < level, 0.0, 1.0), clipped), near

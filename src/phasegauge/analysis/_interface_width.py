@@ -12,13 +12,12 @@ logistic eps itself is returned as ``interface_eps``.
 
 from __future__ import annotations
 
-import warnings
 from contextlib import nullcontext
 
 import numpy as np
 import pandas as pd
 
-from ..errors import OptionError, PhasegaugeWarning
+from ..errors import OptionError
 from ..model._statistics import weighted_quantile
 from ..model.contour import Contour
 from ..model.corners import CornerExtremes, cell_gradient, corner_extremes
@@ -27,14 +26,13 @@ from ..model._threads import Beside, check_threads
 from ..model.simplices import _split_plan
 from ._boundary_reach import boundary_share
 from ._facing_interface import facing_interface_share
-from ._bulk_noise import (NOISE_EDGE_SPREADS, TOO_NOISY, beyond_reach_points, bulk_spread, side_deviations,
-                          spread_of)
+from ._bulk_noise import between_bulks, leave_out_noise
 from ._contour import _check_extremes, _check_level, find_interface
 from ._profile_fits import PROFILE_COLUMNS, WIDTH_PER_EPS, _profile_table
 from ._hex_integrals import _HexBand, coned_hexahedra
 from ._signed_distance import MeasuredDistances, _ContourGeometry, _whole_cell_pieces
 from ._bulk_plateaus import bulk_plateaus
-from ._width_integrals import _LOW, NEAR_BAND, _GridBand, _SplitBand, _grid_tetrahedra
+from ._width_integrals import NEAR_BAND, _GridBand, _SplitBand, _grid_tetrahedra
 
 __all__ = ["interface_metrics", "interface_profile_table", "prepare_widths", "PreparedWidths", "METRIC_KEYS",
            "PROFILE_COLUMNS", "WIDTH_PER_EPS"]
@@ -140,7 +138,8 @@ class PreparedWidths:
             self.plateaus = (low, high, tail)
             self.clipped = self._rescaled(self.c_point)  # the estimators see the profile between the bulk values
             self.width_level = self.level if (low, high) == (0.0, 1.0) else (self.level - low) / (high - low)
-            near = self._leave_out_noise(mesh, indicator, extremes)
+            self.clipped, near = leave_out_noise(mesh, indicator, self.c_point, self.clipped, self.plateaus,
+                                                 self.width_level, extremes)
             self.cell_mixed = _cell_mixed(mesh, indicator, low, high, tail, near)
             if near is not None and layout is None:  # the extremes of the values the integrals read
                 extremes = corner_extremes(mesh, self.clipped)
@@ -151,51 +150,7 @@ class PreparedWidths:
 
     def _rescaled(self, values: np.ndarray) -> np.ndarray:
         """``values`` between the bulk values, clipped to [0, 1] (monotone: cells' corner extremes map too)."""
-        low, high, _ = self.plateaus
-        if (low, high) == (0.0, 1.0):
-            return np.clip(values, 0.0, 1.0)
-        return np.clip((values - low) / (high - low), 0.0, 1.0)
-
-    def _leave_out_noise(self, mesh: Mesh, indicator, extremes):
-        """With bulk noise that reaches the band edge, the points beyond the contour's reach set to their
-        side's bulk (:func:`._bulk_noise.beyond_reach_points`); the cells within reach, else None.
-
-        The spread is read first over every value near a bulk (a smooth profile's own values count in
-        it too: a small drop with no bulk inside), and where that reaches the band edge again over the
-        values beyond reach alone, which must reach it as well. It warns where the spread of the point values
-        beyond reach, which the widths read (a cell's noise reaches the points averaged over its neighbours:
-        about half of it in 2D), exceeds :data:`TOO_NOISY` of the jump; the cells' spread only leaves out.
-        """
-        low, high, _ = self.plateaus
-        u = (self.c_point - low) / (high - low)
-        cells = None
-        if getattr(indicator, "location", None) == "cell":  # the solver's own values: their noise in full
-            cells = (np.asarray(indicator.cell, dtype=np.float64) - low) / (high - low)
-        level = self.width_level
-        # the leave-out reads every side, however few its values (leaving out does no harm); the warning the
-        # sides with enough of them
-        spread = max(bulk_spread(u, level, least=1), 0.0 if cells is None else bulk_spread(cells, level, least=1))
-        if not NOISE_EDGE_SPREADS * spread > _LOW:
-            return None
-        if extremes is not None:  # those of c: the clipped values' are theirs mapped (monotone, the same rounding)
-            extremes = CornerExtremes(*(self._rescaled(part) for part in extremes))
-        beyond, near = beyond_reach_points(mesh, self.clipped, level, extremes=extremes)
-        if not near.any():  # no crossing to reach from
-            return None
-        deviations = side_deviations(u[beyond], level)
-        read = spread_of(deviations)  # the point values the widths read: the warning's
-        spread = max(spread_of(deviations, least=1),
-                     0.0 if cells is None else bulk_spread(cells[~near], level, least=1))
-        if read > TOO_NOISY:
-            warnings.warn(PhasegaugeWarning(
-                f"the bulk values scatter by {100 * read:.1f} % of the jump between the phases "
-                f"({high - low:.3g}; sd as scaled MAD), beyond the {100 * TOO_NOISY:.0f} % up to which the "
-                "interface widths are told from such noise: they read high; average the field (over time, "
-                "or over more particles) before measuring, or read no width before the phases separate"), stacklevel=3)
-        if not NOISE_EDGE_SPREADS * spread > _LOW:
-            return None
-        self.clipped = np.where(beyond, np.where(self.clipped < level, 0.0, 1.0), self.clipped)
-        return near
+        return between_bulks(values, *self.plateaus[:2])
 
     @property
     def moment_integrals(self):
