@@ -44,10 +44,11 @@ def tracking_findings(droplets, events, options, bounds=None, steps=None, number
         return []
     edge = _edge_tracks(droplets, bounds)
     appeared = _appearances(events, edge)
-    jumps = _jumps(droplets, events, edge, _rescaled(steps), appeared)
-    pairs = _vanished_and_appeared(droplets, events, edge, appeared)
-    fused = _fused(droplets, events)
-    backwards = _backwards(droplets, events, edge, bounds, getattr(options, "periodic", ()) or ())
+    written = np.unique(droplets["step"].to_numpy())  # the steps holding drops, in order
+    jumps = _jumps(droplets, events, edge, _rescaled(steps), appeared, written)
+    pairs = _vanished_and_appeared(droplets, events, edge, appeared, written)
+    fused = _fused(droplets, events, written)
+    backwards = _backwards(droplets, events, edge, bounds, getattr(options, "periodic", ()) or (), written)
     if not jumps and not pairs and not fused and not backwards:
         return []
     parts = []
@@ -118,12 +119,11 @@ def _rescaled(steps) -> set:
     return {int(k) for k in steps["step"].to_numpy()[1:][moved]}
 
 
-def _jumps(droplets, events, edge: set, rescaled: set, appeared: dict) -> list:
+def _jumps(droplets, events, edge: set, rescaled: set, appeared: dict, steps) -> list:
     """(factor, time) of each one-to-one link between consecutive steps whose volume shrinks by
     :data:`JUMP_FACTOR` or more while what it held turns up (within :data:`SAME_VOLUME`) on a track
     growing as much or as one of ``appeared`` (step -> appearance volumes); the drop named in no event
     of the later step and in neither step among ``edge`` (:func:`_edge_tracks`)."""
-    steps = np.unique(droplets["step"].to_numpy())
     following = dict(zip(steps[:-1], steps[1:]))
     table = droplets[["step", "time", "track", "volume"]]
     left_out = np.fromiter(((s, t) in edge for s, t in zip(table["step"], table["track"])), dtype=bool,
@@ -185,13 +185,12 @@ def _touches(droplets, bounds: np.ndarray) -> np.ndarray:
     return touches
 
 
-def _vanished_and_appeared(droplets, events, edge: set, appeared: dict) -> list:
+def _vanished_and_appeared(droplets, events, edge: set, appeared: dict, steps) -> list:
     """Times of the disappearances in a step with one of ``appeared`` (:func:`_appearances`), whatever the
     volumes (drops mixed up differ in volume too), the drops among ``edge`` left out (a drop leaving through
     an outlet as another enters; specks of a few cells)."""
     if events is None or not len(events):
         return []
-    steps = np.unique(droplets["step"].to_numpy())
     before = dict(zip(steps[1:], steps[:-1]))
     times = []
     for (step, time), group in events.groupby(["step", "time"]):
@@ -203,14 +202,13 @@ def _vanished_and_appeared(droplets, events, edge: set, appeared: dict) -> list:
     return times
 
 
-def _fused(droplets, events) -> list:
+def _fused(droplets, events, steps) -> list:
     """Times of the complex events with as many drops on each side whose volumes pair one to one within
     :data:`SAME_VOLUME`, largest to largest (each drop after with one before, at the previous step): drops
     carried on that the tracker could not pair by their overlap. Not the totals: an incompressible exchange
     (a tail pinching off into the drop ahead) keeps the total while its drops change volume."""
     if events is None or not len(events):
         return []
-    steps = np.unique(droplets["step"].to_numpy())
     previous = {int(b): int(a) for a, b in zip(steps[:-1], steps[1:])}
     sums = droplets.groupby(["step", "track"])["volume"].sum()
     volume = {(int(k), int(t)): float(v) for (k, t), v in sums.items()}
@@ -227,7 +225,7 @@ def _fused(droplets, events) -> list:
     return times
 
 
-def _backwards(droplets, events, edge: set, bounds, periodic) -> list:
+def _backwards(droplets, events, edge: set, bounds, periodic, steps) -> list:
     """Times of the one-to-one links (named in no event of the later step, neither drop among ``edge``) whose
     centroid moves against the drop's velocity (the mean of both steps' ``velocity_*`` times the time
     between them) by more than :data:`BACKWARDS` of that expected displacement, where that is at least
@@ -239,7 +237,6 @@ def _backwards(droplets, events, edge: set, bounds, periodic) -> list:
     table = table[[(s, t) not in edge for s, t in zip(table["step"], table["track"])]]
     table = table[~table.duplicated(["step", "track"], keep=False)]
     named = _in_events(events)
-    steps = np.unique(droplets["step"].to_numpy())
     following = dict(zip(steps[:-1], steps[1:]))
     first, second = table.iloc[:-1], table.iloc[1:]
     same = ((first["track"].to_numpy() == second["track"].to_numpy())
