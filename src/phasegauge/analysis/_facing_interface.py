@@ -14,8 +14,9 @@ import numpy as np
 __all__ = ["facing_interface_share", "FACING_SAMPLE"]
 
 #: the share is read on at most this many elements, evenly spaced (our threshold: a share p read on n of them
-#: scatters by sqrt(p (1 - p) / n), 0.34 % at p = 0.05 and n = 4096)
-FACING_SAMPLE = 4096
+#: scatters by sqrt(p (1 - p) / n), 0.68 % at p = 0.05 and n = 1024; 4096 took 0.12 s a step, a third of a later
+#: step of 1M tetrahedra)
+FACING_SAMPLE = 1024
 #: at most this many points along each half of an element's normal line
 _MAX_SAMPLES = 32
 #: elements asked for near each point of a line
@@ -55,19 +56,16 @@ def facing_interface_share(centroids: np.ndarray, normals: np.ndarray, sizes: np
     radius = float(np.hypot(lateral, 0.5 * step))
     along = step * np.r_[np.arange(1, m + 1), -np.arange(1, m + 1)]
     k = min(_NEAREST, sizes.size)
-    faced = np.zeros(picked.size, dtype=bool)
-    for t in along:
-        todo = np.flatnonzero(~faced)
-        if todo.size == 0:
-            break
-        rows = picked[todo]
-        _, near = tree.query(at[rows] + t * unit[rows], k=k, distance_upper_bound=radius)
-        near = near.reshape(rows.size, k)
-        found = near < sizes.size
-        near = np.where(found, near, rows[:, None])
-        opposite = np.einsum("ikj,ij->ik", unit[near], unit[rows]) < _OPPOSITE
-        offset = at[near] - at[rows][:, None, :]
-        within = np.einsum("ikj,ikj->ik", offset, offset) <= reach * reach
-        faced[todo[(found & opposite & within).any(axis=1)]] = True
+    # every point of every picked element's line asked at once (rows element by element, points along the line)
+    rows = np.repeat(picked, along.size)
+    points = at[rows] + np.tile(along, picked.size)[:, None] * unit[rows]
+    _, near = tree.query(points, k=k, distance_upper_bound=radius)
+    near = near.reshape(rows.size, k)
+    found = near < sizes.size
+    near = np.where(found, near, rows[:, None])
+    opposite = np.einsum("ikj,ij->ik", unit[near], unit[rows]) < _OPPOSITE
+    offset = at[near] - at[rows][:, None, :]
+    within = np.einsum("ikj,ikj->ik", offset, offset) <= reach * reach
+    faced = (found & opposite & within).any(axis=1).reshape(picked.size, along.size).any(axis=1)
     weight = sizes[picked]
     return float(np.sum(weight[faced]) / np.sum(weight))

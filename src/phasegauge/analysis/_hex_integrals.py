@@ -383,7 +383,7 @@ class _HexCells:
     def moments(self, dist: np.ndarray) -> np.ndarray:
         """(m0, m1, m2) over the cells whose eight corner distances are known (by the quadrature's
         rule where the integrals took it, else over their tetrahedra), weighted by the measure times
-        grad c . grad d (as :func:`._width_integrals._normal_weights`)."""
+        grad c . grad d (as :func:`._width_integrals._normal_coefficients`)."""
         m0 = m1 = m2 = 0.0
         columns = self.columns
         for connectivity, part, gradients, segments in self.smooth_chunks:  # the same rule as int c (1 - c)

@@ -51,51 +51,54 @@ def _chunks(n: int, size: int = _CHUNK):
     return [slice(start, start + size) for start in range(0, n, size)]
 
 
-def _simplex_gradients(columns: list, ids: list, values: list):
+def _simplex_gradients(columns: list, ids: list, values: list, adjugate=None):
     """Unsigned measures and |grad c| of the linear field on each simplex.
 
     ``columns`` are the vertex coordinates by axis (dim arrays), ``ids`` the
     vertex ids of the simplices by corner (dim + 1 arrays of length n) and
     ``values`` the vertex values by corner. The gradient comes by Cramer's
     rule, |grad c| = |adj(E) dv| / |det E| (zero on a degenerate simplex); the
-    determinant is d! times the signed measure.
+    determinant is d! times the signed measure. ``adjugate``: :func:`_adjugate` of the simplices, where made
+    already.
     """
-    size, factorial, (g,) = _adjugate_products(columns, ids, [values])
+    size, factorial, cols = _adjugate(columns, ids) if adjugate is None else adjugate
+    dv = [v - values[0] for v in values[1:]]
+    g = [sum(x * col[axis] for x, col in zip(dv, cols)) for axis in range(len(columns))]
     norm = np.sqrt(sum(x * x for x in g))
     gnorm = np.divide(norm, size, out=np.zeros_like(norm), where=size != 0)
     return size / factorial, gnorm
 
 
-def _normal_weights(columns: list, ids: list, values: list, d: list) -> np.ndarray:
-    """measure x grad c . grad d per simplex, c and d linear (vertex values by corner; zero on a degenerate
-    simplex): (adj(E) dc) . (adj(E) dd) / (d! |det E|)."""
-    size, factorial, (gc, gd) = _adjugate_products(columns, ids, [values, d])
-    dot = sum(a * b for a, b in zip(gc, gd))
-    return np.divide(dot, factorial * size, out=np.zeros_like(dot), where=size != 0)
+def _normal_coefficients(columns: list, ids: list, values: list, adjugate=None) -> list:
+    """Per simplex, the coefficients of the vertex differences of any linear d in measure x grad c . grad d
+    (by corner after the first): (adj(E)_k . adj(E) dc) / (d! |det E|), adj(E)_k the adjugate's k-th column
+    (grad d = adj(E) dd / det E); zero on a degenerate simplex. ``adjugate``: :func:`_adjugate` of the
+    simplices, where made already."""
+    size, factorial, cols = _adjugate(columns, ids) if adjugate is None else adjugate
+    dv = [v - values[0] for v in values[1:]]
+    g = [sum(x * col[axis] for x, col in zip(dv, cols)) for axis in range(len(columns))]
+    scale = np.divide(1.0, factorial * size, out=np.zeros_like(size), where=size != 0)
+    return [sum(col[axis] * g[axis] for axis in range(len(columns))) * scale for col in cols]
 
 
-def _adjugate_products(columns: list, ids: list, fields: list):
-    """|det E|, d! and per field adj(E) dv by axis, E the simplices' edge vectors from their first vertex
-    and dv the field's differences along them (``fields``: vertex values by corner, each)."""
+def _weights_of(coefficients: list, d: list) -> np.ndarray:
+    """measure x grad c . grad d from :func:`_normal_coefficients` and d's vertex values by corner."""
+    return sum(k * (v - d[0]) for k, v in zip(coefficients, d[1:]))
+
+
+def _adjugate(columns: list, ids: list):
+    """|det E|, d! and the adjugate's columns by axis (adj(E) dv = sum_k dv_k adj(E)_k), E the simplices' edge
+    vectors from their first vertex."""
     x0 = [col[ids[0]] for col in columns]
     e = [[col[i] - start for col, start in zip(columns, x0)] for i in ids[1:]]
-    out = []
     if len(columns) == 2:
         (ax, ay), (bx, by) = e
-        det = ax * by - ay * bx
-        for values in fields:
-            dv = [v - values[0] for v in values[1:]]
-            out.append((dv[0] * by - dv[1] * ay, dv[1] * ax - dv[0] * bx))
-        return np.abs(det), 2.0, out
+        return np.abs(ax * by - ay * bx), 2.0, [(by, -bx), (-ay, ax)]
     (ax, ay, az), (bx, by, bz), (cx, cy, cz) = e
     bc = (by * cz - bz * cy, bz * cx - bx * cz, bx * cy - by * cx)  # b x c
     ca = (cy * az - cz * ay, cz * ax - cx * az, cx * ay - cy * ax)  # c x a
     ab = (ay * bz - az * by, az * bx - ax * bz, ax * by - ay * bx)  # a x b
-    det = ax * bc[0] + ay * bc[1] + az * bc[2]
-    for values in fields:
-        dv = [v - values[0] for v in values[1:]]
-        out.append(tuple(dv[0] * p + dv[1] * q + dv[2] * r for p, q, r in zip(bc, ca, ab)))
-    return np.abs(det), 6.0, out
+    return np.abs(ax * bc[0] + ay * bc[1] + az * bc[2]), 6.0, [bc, ca, ab]
 
 
 def _band_volume(measures: np.ndarray, values: list) -> float:
@@ -179,8 +182,8 @@ def _fraction_of(ordered: list, t: float) -> np.ndarray:
 def _moment_sums(weights: np.ndarray, d: list) -> tuple[float, float, float]:
     """Sums of w, w mean(d) and w (int d^2 / measure) over simplices whose vertex distances are all known.
 
-    ``weights`` is measure x grad c . grad d per simplex (:func:`_normal_weights`), ``d`` the vertex
-    distances by corner (NaN where not known).
+    ``weights`` is measure x grad c . grad d per simplex (:func:`_normal_coefficients`, :func:`_weights_of`),
+    ``d`` the vertex distances by corner (NaN where not known).
     """
     k = len(d)
     total, squares = _sums(d)
@@ -220,15 +223,22 @@ class _SplitBand:
         weights = []
         self.known = np.zeros(values.shape[0], dtype=bool)
         self.band = self.mixed = 0.0
+        self._coefficients = []  # per piece, the second moment's weight coefficients of its varying simplices
         for ids in self._pieces():
             vertex_values = [values[i] for i in ids]
-            measures, gnorm = _simplex_gradients(columns, ids, vertex_values)
+            adjugate = _adjugate(columns, ids)
+            measures, gnorm = _simplex_gradients(columns, ids, vertex_values, adjugate)
             weights.append(measures * gnorm)
             self.band += _band_volume(measures, vertex_values)
             self.mixed += _mixed_integral(measures, vertex_values)
             varying = weights[-1] > 0
             for i in ids:
                 self.known[i[varying]] = True
+            # kept (dim floats a varying simplex) so the moments need only the distances' differences
+            picked = (adjugate[0][varying], adjugate[1], [[x[varying] for x in col] for col in adjugate[2]])
+            self._coefficients.append(_normal_coefficients(columns, None, [v[varying] for v in vertex_values],
+                                                           picked))
+            del adjugate, picked
         self.weights = np.concatenate(weights) if weights else np.zeros(0)
         self.count = self.weights.size
         self.total_gradient = float(self.weights.sum())
@@ -278,18 +288,17 @@ class _SplitBand:
 
     def moments(self, dist: np.ndarray) -> tuple[float, float, float]:
         """(m0, m1, m2) of :func:`_moment_sums` over all simplices where c varies, weighted by
-        :func:`_normal_weights`."""
+        the stored :func:`_normal_coefficients` (:func:`_weights_of`)."""
         m = np.zeros(3)
-        start, values = 0, self.split.values
-        for ids in self._pieces():
+        start = 0
+        for ids, coefficients in zip(self._pieces(), self._coefficients):
             n = ids[0].size
             varying = self.weights[start:start + n] > 0
             start += n
             if not varying.any():
                 continue
-            ids = [i[varying] for i in ids]
-            d = [dist[i] for i in ids]
-            m += _moment_sums(_normal_weights(self.columns, ids, [values[i] for i in ids], d), d)
+            d = [dist[i[varying]] for i in ids]
+            m += _moment_sums(_weights_of(coefficients, d), d)
         return tuple(float(x) for x in m)
 
     def at_points(self, dist: np.ndarray):
