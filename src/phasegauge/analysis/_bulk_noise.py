@@ -15,7 +15,8 @@ from ..model.corners import corner_extremes
 from ..model.mesh import Mesh
 from ._width_integrals import _HIGH, _LOW
 
-__all__ = ["bulk_spread", "side_deviations", "spread_of", "beyond_reach_points", "between_bulks", "leave_out_noise", "NOISE_EDGE_SPREADS", "TOO_NOISY", "SPREAD_SAMPLE"]
+__all__ = ["bulk_spread", "side_deviations", "spread_of", "beyond_reach_points", "between_bulks", "leave_out_noise",
+           "NOISE_EDGE_SPREADS", "TOO_NOISY", "SPREAD_SAMPLE"]
 
 #: the band's own points are told from the bulk's noise where the band edge lies within this many bulk
 #: spreads of the bulk (a spread above 1.25 % of the jump; below it, fewer than 3e-5 of the bulk's points

@@ -192,12 +192,11 @@ class _HexCells:
         self.known = np.zeros(mesh.n_points, dtype=bool)
         self.need = np.zeros(mesh.n_points, dtype=bool)
         self.band = self.mixed = self.total_gradient = 0.0
-        # (tetrahedra, block connectivity, its rows (n,), face codes (n,), six times the measure times grad c
-        # (3, n_tetrahedra, n)) of the cells where c varies
+        # (tetrahedra, block connectivity, its rows (n,), face codes (n,), the second moment's coefficients
+        # (3, n_tetrahedra, n): see _chunk) of the cells where c varies
         self.chunks = []
-        self.columns = columns
-        # (block connectivity, its rows (n,), weights (n,), offsets of the cells summed together) of
-        # cells by quadrature
+        # (block connectivity, its rows (n,), the second moment's coefficients (3 arrays (n,): see _smooth),
+        # offsets of the cells summed together) of cells by quadrature
         self.smooth_chunks = []
         self.count = 0
         for block, start, (local, codes) in zip(mesh.blocks, mesh.block_offsets[:-1], rows):
@@ -230,11 +229,11 @@ class _HexCells:
                 for lo in range(0, chosen.size, _CELL_CHUNK):
                     part, part_codes = chosen[lo:lo + _CELL_CHUNK], chosen_codes[lo:lo + _CELL_CHUNK]
                     low_part, high_part = low[start + part], high[start + part]
-                    weights, gradients = self._chunk(tets, block.connectivity[part], part_codes, clipped, columns,
-                                                     low_part, high_part)
+                    weights, coefficients = self._chunk(tets, block.connectivity[part], part_codes, clipped,
+                                                        columns, low_part, high_part)
                     varying = (weights > 0).any(axis=0)
                     self.chunks.append((tets, block.connectivity, part[varying], part_codes[varying],
-                                        gradients[:, :, varying]))
+                                        coefficients[:, :, varying]))
         # the corners of cells where c varies: those of the cells where it varies on every
         # tetrahedron are all known, the others were marked as they came
         self.need |= self.known
@@ -285,7 +284,11 @@ class _HexCells:
         n = conn.shape[0]
         weights = np.empty((len(tets), n))
         volumes = np.empty((len(tets), n))
-        gradients = np.empty((3, len(tets), n))  # adj(E) dv / |det E|: six times the measure times grad c
+        # per tetrahedron (a, b, f, m), the pair (a, b) low first, the coefficients of d_a - d_m, d_b - d_m and
+        # d_f - d_m in six times the measure times grad c . grad d, d any linear field: G . (e_b x e_f),
+        # G . (e_f x e_a), G . (e_a x e_b), G = adj(E) dc / |det E| (grad d = adj(E) dd / det E; the pair's order
+        # flips both signs alike)
+        coefficients = np.empty((3, len(tets), n))
         mixed = np.zeros(n)
         for t, (a, b, f) in enumerate(tets):
             # tetrahedron (a, b, f, m) from m: adj(E) dv = dv_a (e_b x e_f) + dv_b (e_f x e_a) + dv_f (e_a x e_b)
@@ -297,8 +300,13 @@ class _HexCells:
             gy = (fz * wx - fx * wz) + uf * py
             gz = (fx * wy - fy * wx) + uf * pz
             measure = np.abs(fx * px + fy * py + fz * pz, out=volumes[t])  # six times the measure
-            for k, g in enumerate((gx, gy, gz)):
-                np.divide(g, measure, out=gradients[k, t], where=measure != 0)
+            flat = measure == 0
+            G = [np.divide(g, measure, out=np.zeros(n), where=~flat) for g in (gx, gy, gz)]
+            lo, hi = (a, b) if a < b else (b, a)
+            coefficients[0, t] = _dot(G, _cross(e[hi], e[f]))
+            coefficients[1, t] = _dot(G, _cross(e[f], e[lo]))
+            coefficients[2, t] = _dot(G, (px, py, pz))
+            del G
             gx *= gx
             gy *= gy
             gx += gy
@@ -311,7 +319,7 @@ class _HexCells:
             q *= measure
             mixed -= q
         weights[volumes == 0] = 0.0  # a flat tetrahedron has no gradient (as the split's)
-        gradients[:, volumes == 0] = 0.0
+        coefficients[:, volumes == 0] = 0.0
         self.mixed += float(mixed.sum()) / (20.0 * _SIX)
         self.total_gradient += float(weights.sum()) / _SIX
         self.count += len(tets) * n
@@ -340,7 +348,7 @@ class _HexCells:
                                                                 np.concatenate([vc[b] for _, b, _ in tets]),
                                                                 np.concatenate([vc[f] for _, _, f in tets]),
                                                                 np.tile(vm[cut], len(tets))]) / _SIX
-        return weights, gradients
+        return weights, coefficients
 
     def _smooth(self, connectivity, part, codes, values, columns, start, inside, segments):
         """Integrals of cells no band edge crosses, by the cell's trilinear map (see the module notes);
@@ -351,7 +359,8 @@ class _HexCells:
         ids = [conn[:, q] for q in range(8)]
         v = [values[i] for i in ids]
         X = [[col[i] for col in columns] for i in ids]
-        det, (g,) = _centre_gradients(X, [v])
+        det, adjugate = _centre_adjugate(X)
+        g = _centre_products(adjugate, [_xi_differences(v)])[0]
         volume = self.mesh.cell_measures[start + part]
         if inside.any():
             split = _split_volumes([[x[inside] for x in corner] for corner in X], codes[inside],
@@ -362,6 +371,9 @@ class _HexCells:
         del X
         ok = det != 0
         gradients = [np.divide(x * volume, det, out=np.zeros(part.size), where=ok) for x in g]  # V grad c
+        # V grad c . grad d = sum_k (d's kth xi difference) V grad c . a_k / det J, a_k the adjugate's columns
+        coefficients = [np.divide(_dot(gradients, a), det, out=np.zeros(part.size), where=ok) for a in adjugate]
+        del gradients
         weights = np.abs(det)
         np.divide(np.sqrt(sum(x * x for x in g)) * volume, weights, out=weights, where=ok)
         weights[~ok] = 0.0
@@ -377,7 +389,7 @@ class _HexCells:
         varying = weights > 0
         for i in ids:
             self.known[i[varying]] = True
-        self.smooth_chunks.append((connectivity, part[varying], [x[varying] for x in gradients],
+        self.smooth_chunks.append((connectivity, part[varying], [x[varying] for x in coefficients],
                                    _within(varying, segments)))
 
     def moments(self, dist: np.ndarray) -> np.ndarray:
@@ -385,13 +397,11 @@ class _HexCells:
         rule where the integrals took it, else over their tetrahedra), weighted by the measure times
         grad c . grad d (as :func:`._width_integrals._normal_coefficients`)."""
         m0 = m1 = m2 = 0.0
-        columns = self.columns
-        for connectivity, part, gradients, segments in self.smooth_chunks:  # the same rule as int c (1 - c)
+        for connectivity, part, coefficients, segments in self.smooth_chunks:  # the same rule as int c (1 - c)
             conn = connectivity[part]
             d, dm = _corner_distances(dist, conn)
             ok = np.isfinite(dm)
-            det, (g,) = _centre_gradients([[col[conn[:, q]] for col in columns] for q in range(8)], [d])
-            w = np.divide(_dot(gradients, g), det, out=np.zeros(part.size), where=det != 0)[ok]
+            w = _dot(coefficients, _xi_differences(d))[ok]
             squares = corner_sum(x * x for x in d) / 8.0
             dm = dm[ok]
             second = squares[ok] / 3.0 + (2.0 / 3.0) * dm * dm
@@ -399,7 +409,7 @@ class _HexCells:
                 m0 += _SIX * float(w[lo:hi].sum())
                 m1 += 4.0 * _SIX * dot(w[lo:hi], dm[lo:hi])
                 m2 += 20.0 * _SIX * dot(w[lo:hi], second[lo:hi])
-        for tets, connectivity, part, codes, gradients in self.chunks:
+        for tets, connectivity, part, codes, coefficients in self.chunks:
             # the chunk's corners gathered again: 8 bytes a cell kept, not 64
             conn = connectivity[part]
             d, dm = _corner_distances(dist, conn)
@@ -407,9 +417,8 @@ class _HexCells:
             if not ok.all():
                 if not ok.any():
                     continue
-                conn, d, dm = conn[ok], [x[ok] for x in d], dm[ok]
-                gradients, codes = gradients[:, :, ok], codes[ok]
-            e = _cone_vectors(conn, codes, tets, columns)
+                d, dm = [x[ok] for x in d], dm[ok]
+                coefficients, codes = coefficients[:, :, ok], codes[ok]
             d += [None] * 6
             for f in {f for _, _, f in tets if 8 <= f < _TURNED}:
                 a, b, c, h = _HEX_FACES[f - 8]
@@ -424,14 +433,8 @@ class _HexCells:
                 if f not in apexes:
                     apexes[f] = (d[f] + dm, squares[f] + dm * dm)
                 (pair_sum, pair_squares), (apex_sum, apex_squares) = pairs[key], apexes[f]
-                # adj(E) dd = e_f x W + dd_f P, as c's (P = e_a x e_b, W = dd_b e_a - dd_a e_b, dd = d - dm, the
-                # pair in the same order: both change sign with it)
-                a, b = key
-                da, db, df = d[a] - dm, d[b] - dm, d[f] - dm
-                p = _cross(e[a], e[b])
-                wv = [db * x - da * y for x, y in zip(e[a], e[b])]
-                g = [x + df * y for x, y in zip(_cross(e[f], wv), p)]
-                w = _dot(gradients[:, t], g)
+                a, b = key  # (the coefficients' order: the pair low first, then the third vertex)
+                w = _dot(coefficients[:, t], (d[a] - dm, d[b] - dm, d[f] - dm))
                 m0 += float(w.sum())
                 total = pair_sum + apex_sum
                 m1 += dot(w, total)
@@ -457,20 +460,28 @@ def _cone_vectors(conn: np.ndarray, codes: np.ndarray, tets: tuple, columns: lis
     return e
 
 
-def _centre_gradients(X: list, fields: list) -> tuple:
-    """det J and per field det J times its gradient at the cells' centres (J^-T dv/dxi by Cramer's rule).
+def _centre_adjugate(X: list) -> tuple:
+    """det J and the adjugate's columns a_0, a_1, a_2 of the trilinear map at the cells' centres (4 dx/dxi_k, the
+    corner sums of the faces xi_k = 1 less those of xi_k = 0: the factors 4 cancel in every gradient).
 
-    ``X``: per corner its three coordinate arrays; ``fields``: per field its corner values. 4 dx/dxi_k at the
-    centre are the corner sums of the faces xi_k = 1 less those of xi_k = 0, and so are 4 dv/dxi_k (the
-    factors 4 cancel)."""
+    ``X``: per corner its three coordinate arrays. A field's gradient there is sum_k b_k a_k / det J, b its
+    :func:`_xi_differences` (J^-T dv/dxi by Cramer's rule)."""
     j = [[corner_sum(X[q][d] for q in high) - corner_sum(X[q][d] for q in low) for d in range(3)]
          for high, low in _XI_FACES]
     a0, a1, a2 = _cross(j[1], j[2]), _cross(j[2], j[0]), _cross(j[0], j[1])
-    out = []
-    for v in fields:
-        b = [corner_sum(v[q] for q in high) - corner_sum(v[q] for q in low) for high, low in _XI_FACES]
-        out.append([b[0] * a0[d] + b[1] * a1[d] + b[2] * a2[d] for d in range(3)])
-    return _dot(j[0], a0), out
+    return _dot(j[0], a0), (a0, a1, a2)
+
+
+def _xi_differences(v: list) -> list:
+    """4 dv/dxi_k at the cells' centres: the corner sums of the faces xi_k = 1 less those of xi_k = 0 (``v``: the
+    field's corner values)."""
+    return [corner_sum(v[q] for q in high) - corner_sum(v[q] for q in low) for high, low in _XI_FACES]
+
+
+def _centre_products(adjugate: tuple, differences: list) -> list:
+    """Per field (its :func:`_xi_differences`), det J times its gradient at the cells' centres."""
+    a0, a1, a2 = adjugate
+    return [[b[0] * a0[d] + b[1] * a1[d] + b[2] * a2[d] for d in range(3)] for b in differences]
 
 
 class _HexBand:
