@@ -25,7 +25,7 @@ from ..model.mesh import Mesh
 from ..model._threads import Beside, check_threads
 from ..model.simplices import _split_plan
 from ._boundary_reach import boundary_share
-from ._facing_interface import facing_interface_share
+from ._facing_interface import FACING_REACH, facing_interface_share
 from ._bulk_noise import between_bulks, leave_out_noise
 from ._contour import _check_extremes, _check_level, find_interface
 from ._profile_fits import PROFILE_COLUMNS, WIDTH_PER_EPS, _profile_table
@@ -332,7 +332,7 @@ def interface_metrics(mesh: Mesh, indicator, *, level: float = 0.5, contour: Con
         width integrates the cell values and carries a fifth of it.
         ``interface_near_interface_fraction`` : float in [0, 1]; share of the
         interface size with another stretch of interface, facing the other
-        way, within the second moment's reach along its normal (a thin film,
+        way, within 1.5 x the second moment's reach along its normal (a thin film,
         a ligament, the far side of a small drop: its profile is cut halfway,
         :func:`._facing_interface.facing_interface_share`).
         ``bulk_noise_left_out`` : float; 1 where the bulk noise was left out
@@ -562,9 +562,9 @@ def _metrics(prepared: PreparedWidths, max_samples: int, threads: int = 1, *, di
         "interface_near_boundary_fraction": boundary_share(mesh, geometry.centroids, sizes, float(bound),
                                                            normals=geometry.normals, lateral=h_interface,
                                                            periodic=periodic),
-        # the share whose profile another interface, facing it, cuts within that reach (a thin film)
+        # the share whose profile another interface, facing it, cuts within 1.5 x that reach (a thin film)
         "interface_near_interface_fraction": facing_interface_share(geometry.centroids, geometry.normals, sizes,
-                                                                    float(bound), h_interface),
+                                                                    FACING_REACH * float(bound), h_interface),
         "bulk_noise_left_out": float(prepared.noise_left_out),
     }
     return metrics, table, measured
