@@ -201,11 +201,10 @@ def _far_bulks(c: np.ndarray, mesh, finite: np.ndarray, sides: list, plateaus: l
       sides holding :data:`._bulk_noise.SPREAD_SAMPLE` of them counting; where none does, of those beyond the
       first distance, alike; where none holds as many there either, of all those together (a matrix packed
       between drops about 10 eps apart holds few values beyond either distance); a side read at its crest
-      counts in none (with no side read so far out, the spread is 0: the tail cut-off's floor). Nearer in,
-      a clean profile's
-      tail within 0.05 gave a spread of a third of the distance of 0.977 from 0.98, and the cut-off of three such
-      spreads took about 30 % of the variance out of the width integrals; a cut-off at 1e-3 still takes 4 % (the
-      logistic density's share beyond 6.9 eps), at 1e-4 0.6 %.
+      counts in none (with no side read so far out, the spread is 0: the tail cut-off's floor). Nearer in, a
+      clean profile's tail within 0.05 gave a spread of a third of the distance of 0.977 from 0.98, and the
+      cut-off of three such spreads took about 30 % of the variance out of the width integrals; a cut-off at 1e-3
+      still takes 4 % (the logistic density's share beyond 6.9 eps), at 1e-4 0.6 %.
 
     A side of more than :data:`_FAR_SAMPLE` values within 0.05 of ``g`` is read at that many, evenly spaced.
     """
