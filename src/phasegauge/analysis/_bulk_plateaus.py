@@ -91,7 +91,9 @@ def bulk_plateaus(c_point: np.ndarray, level: float, mesh=None, *, extremes=None
         its side's values beyond the profile's own tail, eps ln 1000 + 1 cell
         from the contour, where at least ``FAR_VALUES`` lie there
         (:func:`_far_bulks`: the inside at 0.98 of a drop 13 eps across read
-        0.977 from values still on its tail).
+        0.977 from values still on its tail); where fewer do, as its extreme
+        (the crest of a film under about 15 eps thick, whose near median lay
+        below the crest).
         ``(0.0, 1.0)`` when both lie within ``PLATEAU_TOLERANCE`` (1e-3) of
         0 and 1.
     tail : float
@@ -102,9 +104,10 @@ def bulk_plateaus(c_point: np.ndarray, level: float, mesh=None, *, extremes=None
         droplets, as the Gibbs-Thomson shift of a Cahn-Hilliard run gives),
         at most 0.02, at least 1e-6. With a mesh the values are read beyond
         the profile's tail (:func:`_far_bulks`), so a clean profile cuts
-        nothing; without one, or where no side holds values that far out,
-        they are the side's values within 0.05 of its plateau, which take a
-        profile's own tail in too.
+        nothing, and a side holding too few values that far out (a film
+        under about 15 eps thick) reads its crest (its extreme) and takes
+        no cut-off; without a mesh they are the side's values within 0.05
+        of its plateau, which take a profile's own tail in too.
 
     Notes
     -----
@@ -182,22 +185,26 @@ def bulk_plateaus(c_point: np.ndarray, level: float, mesh=None, *, extremes=None
 
 def _far_bulks(c: np.ndarray, mesh, finite: np.ndarray, sides: list, plateaus: list, contour):
     """The plateaus of :func:`bulk_plateaus` read again over the values beyond the profile's own tail, and the
-    spread of those values (None where no side holds any).
+    spread of those values (0 where no side holds enough of them).
 
     - A side's plateau ``g`` off its ideal becomes the median of its values within 0.05 of ``g`` farther than
       eps ln(1 / PLATEAU_TOLERANCE) + 1 cell from the centroids of the cells the level crosses (``contour``:
       :func:`_contour_reach`'s; a logistic tail there lies within 1e-3 of its bulk), where it holds at least
       :data:`FAR_VALUES` of them. Nearer in, those values are the profile itself: a logistic's tail within 0.05
       of its bulk (beyond 2.9 eps) drew their median towards the level (0.977 for the inside at 0.98 of a drop
-      of radius 13 eps).
+      of radius 13 eps). A side holding fewer has no bulk that can be told from its tail (a film under about
+      15 eps thick: its near median 0.991 lay below its own crest at 0.9985): it reads its extreme (the 0.5th or
+      99.5th percentile of its values: the crest, nearer its bulk than any value of its tail), and its spread
+      makes no cut-off.
     - The spread is :func:`._bulk_noise.spread_of` the deviations from their own median of a side's values
       farther than eps ln(1 / :data:`_QUIET`) + 1 cell (a logistic tail there lies within 1e-4 of its bulk), the
       sides holding :data:`._bulk_noise.SPREAD_SAMPLE` of them counting; where none does, of those beyond the
       first distance, alike; where none holds as many there either, of all those together (a matrix packed
-      between drops about 10 eps apart holds few values beyond either distance). Nearer in, a clean profile's
-      tail within 0.05 gave a spread of a third of the distance of 0.977 from 0.98, and the cut-off of three such
-      spreads took about 30 % of the variance out of the width integrals; a cut-off at 1e-3 still takes 4 % (the
-      logistic density's share beyond 6.9 eps), at 1e-4 0.6 %.
+      between drops about 10 eps apart holds few values beyond either distance); a side read at its crest
+      counts in none (with no side read so far out, the spread is 0: the tail cut-off's floor). Nearer in, a
+      clean profile's tail within 0.05 gave a spread of a third of the distance of 0.977 from 0.98, and the
+      cut-off of three such spreads took about 30 % of the variance out of the width integrals; a cut-off at 1e-3
+      still takes 4 % (the logistic density's share beyond 6.9 eps), at 1e-4 0.6 %.
 
     A side of more than :data:`_FAR_SAMPLE` values within 0.05 of ``g`` is read at that many, evenly spaced.
     """
@@ -213,13 +220,15 @@ def _far_bulks(c: np.ndarray, mesh, finite: np.ndarray, sides: list, plateaus: l
         near = near[::stride]  # evenly spaced
         distance = tree.query(mesh.coordinates[points[near]], distance_upper_bound=quiet)[0]  # inf beyond quiet
         away = c[near[distance > far]]
-        if away.size * stride >= FAR_VALUES:
-            plateaus[k] = float(np.median(away))
+        if away.size * stride < FAR_VALUES:  # no bulk to tell from the profile's tail: the crest, no cut-off
+            plateaus[k] = found[3]
+            continue
+        plateaus[k] = float(np.median(away))
         for found_there, values in ((beyond, away), (past, c[near[np.isinf(distance)]])):
             if values.size:  # with the number of the side's values they stand for
                 found_there.append((values - np.median(values), values.size * stride))
-    if not beyond:
-        return plateaus, None
+    if not beyond:  # every side off its ideal read at its crest: no cut-off from their tails' spreads
+        return plateaus, 0.0
     # the sides standing for SPREAD_SAMPLE values count, beyond the second distance where any does, else beyond the
     # first; where none does, all beyond the first together (as _bulk_noise.spread_of reads them)
     counted = ([d for d, n in past if n >= SPREAD_SAMPLE] or [d for d, n in beyond if n >= SPREAD_SAMPLE]
@@ -278,7 +287,9 @@ def _contour_reach(c_point: np.ndarray, level: float, mesh, extremes=None, *, bu
 
     c = np.asarray(c_point, dtype=np.float64)
     ext = corner_extremes(mesh, c) if extremes is None else extremes  # (no mesh-wide incidence made for it)
-    crossed = np.flatnonzero((ext.low < level) & (ext.high > level))
+    # crossed as find_interface crosses them: a corner above the level and one at or below it (a contour through a
+    # line of points, as a symmetric film's, crosses the cells beside it)
+    crossed = np.flatnonzero((ext.low <= level) & (ext.high > level))
     del ext
     if crossed.size == 0:
         return None

@@ -25,14 +25,14 @@ from ..model.mesh import Mesh
 from ..model._threads import Beside, check_threads
 from ..model.simplices import _split_plan
 from ._boundary_reach import boundary_share
-from ._facing_interface import facing_interface_share
+from ._facing_interface import FACING_REACH, facing_interface_share
 from ._bulk_noise import between_bulks, leave_out_noise
 from ._contour import _check_extremes, _check_level, find_interface
 from ._profile_fits import PROFILE_COLUMNS, WIDTH_PER_EPS, _profile_table
 from ._hex_integrals import _HexBand, coned_hexahedra
 from ._signed_distance import MeasuredDistances, _ContourGeometry, _whole_cell_pieces
 from ._bulk_plateaus import bulk_plateaus
-from ._width_integrals import NEAR_BAND, _GridBand, _SplitBand, _grid_tetrahedra
+from ._width_integrals import NEAR_BAND, _GridBand, _SplitBand, _grid_tetrahedra, moment_cells
 
 __all__ = ["interface_metrics", "interface_profile_table", "prepare_widths", "PreparedWidths", "METRIC_KEYS",
            "PROFILE_COLUMNS", "WIDTH_PER_EPS"]
@@ -156,26 +156,31 @@ class PreparedWidths:
     def moment_integrals(self):
         """The band integrals the second moment reads (formed when first read): over the values between the bulk
         values as written, not clipped nor with bulk noise left out (its weight grad c . grad d takes noise at zero
-        mean, which those would bias); the widths' own where those read the same values."""
+        mean, which those would bias), on every cell where they vary but within the tail of 0 or 1 (an overshoot
+        above 1 and its fall back count, :func:`._width_integrals.moment_cells`); the widths' own where those read
+        the same values (their cells then differ only where c is constant, which weighs nothing)."""
         if self._moments is None:
             (low, high, _), (band, layout, tail) = self.plateaus, self._moment_plan
             values = self.c_point if (low, high) == (0.0, 1.0) else (self.c_point - low) / (high - low)
             self._moments = self.integrals if np.array_equal(values, self.clipped, equal_nan=True) else \
                 self._integrals(band, layout, None if layout is not None else corner_extremes(self.mesh, values),
-                                tail, rescaled=True, values=values, near_band=-np.inf)
+                                tail, rescaled=True, values=values, near_band=-np.inf, written=True)
         return self._moments
 
     def _integrals(self, band, layout, extremes, tail: float, *, rescaled: bool = False, values=None,
-                   near_band: float = NEAR_BAND):
+                   near_band: float = NEAR_BAND, written: bool = False):
+        """The band integrals of ``values`` (the clipped ones by default); ``written``: the second moment's, over
+        the values as written, on the cells :func:`._width_integrals.moment_cells` picks (a cell wholly above 1 or
+        below 0 counts)."""
         mesh, (low, high, _) = self.mesh, self.plateaus
         values = self.clipped if values is None else values
         if band is _GridBand:
-            return _GridBand(mesh, values, layout, cutoff=tail, near_band=near_band)
+            return _GridBand(mesh, values, layout, cutoff=tail, near_band=near_band, written=written)
         # the extremes of the clipped values are the clipped extremes: those of c will do
         lo, hi = extremes
         if (low, high) != (0.0, 1.0) and not rescaled:
             lo, hi = (lo - low) / (high - low), (hi - low) / (high - low)
-        active = (hi > tail) & (lo < 1.0 - tail)
+        active = moment_cells(lo, hi, tail) if written else (hi > tail) & (lo < 1.0 - tail)
         if band is _HexBand:  # hexahedra coned on all faces: integrated cell by cell
             return _HexBand(mesh, values, active, coned_hexahedra(mesh), lo, hi, near_band=near_band)
         return _SplitBand(mesh, values, active, near_band=near_band)
@@ -327,7 +332,7 @@ def interface_metrics(mesh: Mesh, indicator, *, level: float = 0.5, contour: Con
         width integrates the cell values and carries a fifth of it.
         ``interface_near_interface_fraction`` : float in [0, 1]; share of the
         interface size with another stretch of interface, facing the other
-        way, within the second moment's reach along its normal (a thin film,
+        way, within 1.5 x the second moment's reach along its normal (a thin film,
         a ligament, the far side of a small drop: its profile is cut halfway,
         :func:`._facing_interface.facing_interface_share`).
         ``bulk_noise_left_out`` : float; 1 where the bulk noise was left out
@@ -557,9 +562,9 @@ def _metrics(prepared: PreparedWidths, max_samples: int, threads: int = 1, *, di
         "interface_near_boundary_fraction": boundary_share(mesh, geometry.centroids, sizes, float(bound),
                                                            normals=geometry.normals, lateral=h_interface,
                                                            periodic=periodic),
-        # the share whose profile another interface, facing it, cuts within that reach (a thin film)
+        # the share whose profile another interface, facing it, cuts within 1.5 x that reach (a thin film)
         "interface_near_interface_fraction": facing_interface_share(geometry.centroids, geometry.normals, sizes,
-                                                                    float(bound), h_interface),
+                                                                    FACING_REACH * float(bound), h_interface),
         "bulk_noise_left_out": float(prepared.noise_left_out),
     }
     return metrics, table, measured

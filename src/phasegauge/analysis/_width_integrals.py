@@ -46,6 +46,15 @@ _DIRECT_TYPES = ("triangle", "tetra")
 NEAR_BAND = 0.01
 
 
+def moment_cells(low: np.ndarray, high: np.ndarray, tail: float) -> np.ndarray:
+    """The cells the second moment reads, by the corner extremes ``low``, ``high`` of the values as written: those
+    where c varies that do not lie wholly within ``tail`` of 0 or of 1. A cell wholly above 1 or below 0 counts
+    (an overshoot's fall back to its bulk weighs as much as its rise); on values within [0, 1] these are the
+    widths' own cells, ``high > tail`` and ``low < 1 - tail``, less those where c is constant (no weight)."""
+    return ((high > low) & ~((low >= -tail) & (high <= tail))
+            & ~((low >= 1.0 - tail) & (high <= 1.0 + tail)))
+
+
 def _chunks(n: int, size: int = _CHUNK):
     """Slices of at most ``size`` items covering ``range(n)``."""
     return [slice(start, start + size) for start in range(0, n, size)]
@@ -351,7 +360,7 @@ class _GridBand:
     """
 
     def __init__(self, mesh: Mesh, clipped: np.ndarray, layout: dict, *, cutoff: float = _TAIL,
-                 near_band: float = NEAR_BAND):
+                 near_band: float = NEAR_BAND, written: bool = False):
         grid = mesh.regular_grid
         self.mesh, self.grid, self.layout, self.near_band = mesh, grid, layout, near_band
         values = np.empty(mesh.n_points)
@@ -364,7 +373,8 @@ class _GridBand:
             tail = tuple(slice(1, None) if a == axis else slice(None) for a in range(3))
             low = np.minimum(low[head], low[tail])
             high = np.maximum(high[head], high[tail])
-        cells = np.flatnonzero((high > cutoff) & (low < 1.0 - cutoff))
+        # (``written``: the second moment's values as written, cells by :func:`moment_cells`)
+        cells = np.flatnonzero(moment_cells(low, high, cutoff) if written else (high > cutoff) & (low < 1.0 - cutoff))
         low, high = low.ravel()[cells], high.ravel()[cells]
         nx, ny, nz = grid.cell_shape
         i, j, k = cells // (ny * nz), (cells // nz) % ny, cells % nz

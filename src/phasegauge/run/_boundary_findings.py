@@ -16,10 +16,10 @@ UNDER_RESOLVED_SHARE = 0.1
 #: its diffusivity 2 % low; 4 cells, a quarter of it, 9 % low)
 NEAR_BOUNDARY_SHARE = 0.05
 
-#: a larger share of the interface than this with another interface facing it within the widths' reach is warned
-#: of (our threshold, the boundary's: a slab under exact diffusion from a sharp start, 2H = 0.08 on 128^2 cells,
-#: all of it in reach over its last two of six steps, read its diffusivity 7 % low; 2H = 0.06, from its third
-#: step, 22 % low)
+#: a larger share of the interface than this with another interface facing it within 1.5 x the widths' reach
+#: (:data:`._facing_interface.FACING_REACH`) is warned of (our threshold, the boundary's: a slab under exact
+#: diffusion from a sharp start, 2H = 0.08 on 128^2 cells, read its diffusivity 7 % low; 2H = 0.06, 22 % low; a
+#: logistic film thinning from 17 to 14 eps over the run 5 % low, from 12.9 to 10.5 eps 15 % low)
 NEAR_INTERFACE_SHARE = 0.05
 
 
@@ -46,8 +46,8 @@ def boundary_reach_finding(steps, kind: str = ""):
 
 def facing_interface_finding(steps, kind: str = ""):
     """A warning :class:`~phasegauge.run.assemble.Finding` when, at some step, more than
-    :data:`NEAR_INTERFACE_SHARE` of the interface has another interface facing it within the second moment's
-    reach (``interface_near_interface_fraction``), else None."""
+    :data:`NEAR_INTERFACE_SHARE` of the interface has another interface facing it within 1.5 x the second
+    moment's reach (``interface_near_interface_fraction``), else None."""
     from .assemble import Finding
 
     if "interface_near_interface_fraction" not in steps or kind == "sharp":  # a sharp interface: no profile
@@ -59,9 +59,9 @@ def facing_interface_finding(steps, kind: str = ""):
     at = float(steps["time"].iat[int(np.nanargmax(share))]) if "time" in steps else float("nan")
     return Finding("interface_near_interface", "warning",
                    f"up to {100 * worst:.3g} % of the interface (t = {at:g}) has another interface facing it within "
-                   "the widths' reach (ten eps, or four cells; a thin film, a ligament or a small drop): there its "
-                   "profile is cut halfway, so width_second_moment and the numerical diffusivity read low (a film "
-                   "whose two interfaces came that close read its diffusivity 7-22 % low in our check)",
+                   "1.5 x the widths' reach (15 eps, or six cells; a thin film, a ligament or a small drop): there "
+                   "its profile is cut halfway, so width_second_moment and the numerical diffusivity read low (films "
+                   "whose two interfaces came that close read their diffusivity 5-22 % low in our check)",
                    {"fraction": worst, "time": at, "threshold": NEAR_INTERFACE_SHARE})
 
 
