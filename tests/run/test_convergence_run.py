@@ -432,22 +432,22 @@ def test_quantities_agreeing_on_the_three_meshes_are_not_warned_of_as_off_the_tr
 
 @pytest.mark.parametrize("slip, words", [
     ({"mixing_target": 0.95}, "--mixing-target: 0.9 (fine, medium) against 0.95 (coarse)"),
-    ({"densities": (2.0, 1.0)}, "--densities: not given (fine, medium) against 2,1 (coarse)"),
+    ({"densities": (2.0, 1.0)}, "--densities: 1,1 (fine, medium) against 2,1 (coarse)"),
     ({"time_from": 0.1}, "--time-from: not given (fine, medium) against 0.1 (coarse)")])
 def test_every_option_that_changes_a_figure_is_compared(tmp_path, slip, words):
     # a coarse folder measured with another mixing target (or densities, or a later first step: the drift's
     # reference) was paired without a word: a mixing length's p of 11-15 and a GCI of 5e-6. Measured alike the
     # three runs give p = 2 (midpoint rule of x^2, analytic; see _series)
     paths = _three(tmp_path)
-    same = dict(field="c", analyses=("conservation",))
-    folders = _folders(tmp_path, paths, lambda k: MeasureOptions(**same, **(slip if k == 2 else {})))
+    same = dict(field="c", analyses=("conservation",), section_axis="x", densities=(1.0, 1.0))
+    folders = _folders(tmp_path, paths, lambda k: MeasureOptions(**{**same, **(slip if k == 2 else {})}))
     with pytest.raises(OptionError, match=words.replace("(", r"\(").replace(")", r"\)")):
         grid_convergence_run(*folders)
     alike = [str(f) for f in _folders(tmp_path / "alike", paths, lambda k: MeasureOptions(**same))]
     key, value = next(iter(slip.items()))
     with pytest.raises(OptionError, match=f"--{key.replace('_', '-')} .* was given, but the fine, medium and "
                                           "coarse runs"):  # typed against the folders' own
-        grid_convergence_run(*alike, options=MeasureOptions(**same, **slip))
+        grid_convergence_run(*alike, options=MeasureOptions(**{**same, **slip}))
     rows = grid_convergence_run(*alike).table
     assert rows[rows["quantity"] == "phase_volume"]["apparent_order"].to_numpy() == pytest.approx(2.0, rel=1e-6)
 
@@ -472,6 +472,12 @@ def test_options_that_cannot_change_a_figure_are_not_compared(tmp_path):
     assert rows["apparent_order"].to_numpy() == pytest.approx(2.0, rel=1e-6)
     manifest = json.loads((tmp_path / "conv" / "manifest.json").read_text())
     assert [m["options"]["drift_tolerance"] for m in manifest["meshes"]] == [1e-3, 1e-3, 0.5]
+    # a run measured without sections or densities wrote none of the columns they change: accepted beside one
+    # measured with them (the mass and mixing columns are then not in the table)
+    columns = _folders(tmp_path / "columns", paths, lambda k: MeasureOptions(
+        **same, **(dict(section_axis="x", mixing_target=0.95, densities=(2.0, 1.0)) if k == 0 else {})))
+    table = grid_convergence_run(*columns).table
+    assert "phase_mass" not in set(table["quantity"]) and "phase_volume" in set(table["quantity"])
     # a folder whose record says it was measured flow-weighted (--velocity U) is refused by name
     record = json.loads((folders[2] / "manifest.json").read_text())
     record["options"]["velocity"] = "U"

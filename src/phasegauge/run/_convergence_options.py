@@ -44,6 +44,13 @@ MEASURING_OPTIONS = tuple(f.name for f in dataclasses.fields(MeasureOptions) if 
 #: options given with measure folders that are compared with the folders' own (they cannot apply to a folder)
 FOLDER_CHECKED_OPTIONS = MEASURING_OPTIONS
 
+#: options that only add columns when given (the cross sections' profile and mixing length; the masses): a run
+#: measured without one writes none of those columns, so between runs its "not given" matches any
+_ADDS_COLUMNS = ("section_axis", "densities")
+
+#: options read by the cross sections only: a run measured without a section axis is not compared on them
+_SECTION_OPTIONS = ("section_count", "section_positions", "mixing_target", "inflow_mean")
+
 #: an option's value longer than this many characters is cut in a message (a model's parameters)
 _SHOWN_CHARACTERS = 60
 
@@ -104,7 +111,10 @@ def check_same_options(sources) -> None:
 
     What was measured is compared: periodic axes as a set, the field location as the location read
     (``auto`` where that is not known yet matches either), ``keep_3d`` only where the mesh is one cell
-    thick. A run whose manifest lacks an option (an older measure run) is not compared on it. A series'
+    thick. A run measured without a section axis or densities (:data:`_ADDS_COLUMNS`) wrote none of
+    the columns those change, so it is not compared on them (nor on the section options,
+    :data:`_SECTION_OPTIONS`). A run whose manifest lacks an option (an older measure run) is not
+    compared on it. A series'
     ``keep_3d`` is compared once its mesh is read (its dimension as measured and depth recorded): a real
     3D mesh measured with it is the mesh measured without it.
     """
@@ -113,6 +123,9 @@ def check_same_options(sources) -> None:
         for source in sources:
             if key == "keep_3d" and source.kind == "series" and not source.recorded_dimension:
                 continue
+            if (key in _ADDS_COLUMNS and source.options.get(key) is None
+                    or key in _SECTION_OPTIONS and source.options.get("section_axis", "") is None):
+                continue  # it wrote none of the columns the option changes
             if key in source.options:
                 words = measured_words(key, source.options[key], source)
                 if words is not None:
