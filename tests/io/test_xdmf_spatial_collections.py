@@ -363,38 +363,60 @@ def test_tetrahedra_cut_by_a_jagged_partition_read_as_written_whole(tmp_path):
     assert result.steps["phase_volume"].iloc[0] == pytest.approx(float(integrated.point_data["c"][0]), rel=1e-12)
 
 
+REUSE_FORMS = ("include", "reference", "item_attribute", "element_attribute", "element_xml", "chain")
+
+
 def _reusing(path, form):
     """The file of write_pieces with steps 1 and 2 taking each piece's Topology and Geometry from step 0's piece
-    of that name, as a static mesh written once: by an xi:include of them (the XPointer form of meshio's series
-    writer) or by DataItems given as Reference="XML" paths (XDMF Model and Format, "DataItem ... Reference")."""
+    of that name, as a static mesh written once (XDMF Model and Format: "DataItem ... Reference", and any
+    element may be a reference): by an xi:include of them (the XPointer form of meshio's series writer), by
+    DataItems given as Reference="XML" paths ('reference') or with the path in the attribute
+    ('item_attribute'), by the Topology and Geometry themselves referring ('element_attribute': the path in the
+    attribute; 'element_xml': Reference="XML" and the path as text), or by step 2's DataItems referring to
+    step 1's, which refer to step 0's ('chain')."""
     import re
 
     text = path.read_text().replace('<Xdmf Version="3.0">',
                                     '<Xdmf Version="3.0" xmlns:xi="http://www.w3.org/2001/XInclude">')
     steps = text.split('<Grid Name="step')
+
+    def at(piece, part, quote='"'):
+        return f"/Xdmf/Domain/Grid/Grid[@Name={quote}step0{quote}]/Grid[@Name={quote}{piece}{quote}]/{part}"
+
     for k in range(2, len(steps)):
         if form == "include":
             steps[k] = re.sub(r'(<Grid Name="(p\d)" GridType="Uniform">)<Topology.*?</Geometry>',
                               lambda m: f'{m.group(1)}<xi:include xpointer="xpointer(//Grid[@Name=&quot;'
                                         f'step0&quot;]/Grid[@Name=&quot;{m.group(2)}&quot;]/*[self::Topology or '
                                         f'self::Geometry])"/>', steps[k])
-        else:
-            for part in ("Topology", "Geometry"):
-                written = r'(<Grid Name="(p\d)" GridType="Uniform">.*?<%s[^>]*>)<DataItem[^<]*</DataItem>' % part
-                steps[k] = re.sub(written,
-                                  lambda m: f'{m.group(1)}<DataItem Reference="XML">/Xdmf/Domain/Grid/Grid[@Name='
-                                            f'"step0"]/Grid[@Name="{m.group(2)}"]/{part}/DataItem</DataItem>', steps[k])
+            continue
+        for part in ("Topology", "Geometry"):
+            if form in ("element_attribute", "element_xml"):
+                written = r'(<Grid Name="(p\d)" GridType="Uniform">.*?)<%s[^>]*>.*?</%s>' % (part, part)
+                steps[k] = re.sub(written, lambda m: m.group(1) + (
+                    f"<{part} Reference=\"{at(m.group(2), part, chr(39))}\"/>" if form == "element_attribute"
+                    else f'<{part} Reference="XML">{at(m.group(2), part)}</{part}>'), steps[k])
+                continue
+            written = r'(<Grid Name="(p\d)" GridType="Uniform">.*?<%s[^>]*>)<DataItem[^<]*</DataItem>' % part
+            steps[k] = re.sub(written, lambda m: m.group(1) + (
+                f"<DataItem Reference=\"{at(m.group(2), part, chr(39))}/DataItem\"/>" if form == "item_attribute"
+                else f'<DataItem Reference="XML">{at(m.group(2), part)}/DataItem</DataItem>'), steps[k])
+        if form == "chain" and k == 3:
+            steps[k] = steps[k].replace('Grid[@Name="step0"]', 'Grid[@Name="step1"]')
     path.write_text('<Grid Name="step'.join(steps))
     return str(path)
 
 
-@pytest.mark.parametrize("form", ["include", "reference"])
+@pytest.mark.parametrize("form", REUSE_FORMS)
 def test_pieces_taking_the_first_steps_mesh_read_as_written_whole(tmp_path, form):
     # every step after the first was skipped as "every piece of the spatial collection holds no cells" (include)
-    # or failed to read (reference); the same reuse in a Uniform series read fine. Reference: the same mesh and
-    # fields as one Uniform grid a step by meshio's time-series writer
+    # or failed to read (every Reference form, as damaged HDF5: 1 step measured, exit 0); the same reuse in a
+    # Uniform series read fine. Reference: the same mesh and fields as one Uniform grid a step by meshio's
+    # time-series writer
     path = _reusing(pathlib.Path(write_pieces(tmp_path / "pieces.xdmf", SHAPE_3D, 2)), form)
-    assert path and ("xi:include" in open(path).read()) == (form == "include")
+    text = open(path).read()
+    assert ("xi:include" in text) == (form == "include")
+    assert text.count("Reference=") == (0 if form == "include" else 8)  # 2 steps, 2 pieces, 2 parts
     whole, _ = _measured(write_uniform(tmp_path / "whole.xdmf", SHAPE_3D))
     result, said = _measured(path)
     assert not said
@@ -403,6 +425,55 @@ def test_pieces_taking_the_first_steps_mesh_read_as_written_whole(tmp_path, form
         np.testing.assert_allclose(result.steps[column], whole.steps[column], rtol=1e-12, atol=1e-15)
     mesh, fields, _ = _mesh(path, step=2)
     assert (mesh.n_cells, mesh.n_points) == (2000, 2541) and set(fields.point_data) == {"c"}
+
+
+def test_references_that_come_back_are_named(tmp_path):
+    # step 1's DataItems refer to step 2's and step 2's to step 1's: no element holds the numbers
+    path = pathlib.Path(_reusing(pathlib.Path(write_pieces(tmp_path / "pieces.xdmf", SHAPE_3D, 2)), "chain"))
+    steps = path.read_text().split('<Grid Name="step')
+    steps[2] = steps[2].replace('Grid[@Name="step0"]', 'Grid[@Name="step2"]')
+    path.write_text('<Grid Name="step'.join(steps))
+    with phasegauge.open_series(str(path)) as series:
+        assert series.read(0).mesh.n_cells == 2000
+        with pytest.raises(UnsupportedMeshError, match=r"pieces.xdmf, step 1, piece p0: the DataItem Reference "
+                                                       r"'/Xdmf/Domain/.*' leads back to an element it started "
+                                                       r"from \(a cycle\)"):
+            series.read(1)
+
+
+@pytest.mark.parametrize("form", ["element_attribute", "element_xml", "item_attribute"])
+def test_a_uniform_series_taking_one_mesh_by_reference_reads_as_written_whole(tmp_path, form):
+    # a Uniform grid a step whose Topology and Geometry refer to the Domain's (XDMF Model and Format: any
+    # element may be a reference) was refused ("cannot read the step's data"). Reference: the same mesh and
+    # fields written by meshio's time-series writer
+    path = tmp_path / "shared.xdmf"
+    points, cells = _box(SHAPE_3D, range(SHAPE_3D[0]))
+    with h5py.File(path.with_suffix(".h5"), "w") as h5:
+        mesh = (f'<Topology TopologyType="Hexahedron" NumberOfElements="{len(cells)}">'
+                f'{_item(h5, "cells", cells, "shared.h5")}</Topology>'
+                f'<Geometry GeometryType="XYZ">{_item(h5, "points", points, "shared.h5")}</Geometry>')
+
+        def taken(part):
+            if form == "element_attribute":
+                return f'<{part} Reference="/Xdmf/Domain/{part}[1]"/>'
+            if form == "element_xml":
+                return f'<{part} Reference="XML">/Xdmf/Domain/{part}[1]</{part}>'
+            kind = 'TopologyType="Hexahedron"' if part == "Topology" else 'GeometryType="XYZ"'
+            return f'<{part} {kind}><DataItem Reference="/Xdmf/Domain/{part}[1]/DataItem"/></{part}>'
+
+        grids = "".join(
+            f'<Grid Name="s{k}" GridType="Uniform"><Time Value="{t!r}"/>{taken("Topology")}{taken("Geometry")}'
+            + "".join(f'<Attribute Name="{name}" Center="{center}">{_item(h5, f"{name}{k}", values, "shared.h5")}'
+                      f'</Attribute>' for center, data in zip(("Node", "Cell"), _fields(points, cells, t))
+                      for name, values in data.items()) + "</Grid>"
+            for k, t in enumerate(TIMES))
+    path.write_text(f'<?xml version="1.0"?><Xdmf Version="3.0"><Domain>{mesh}<Grid Name="run" GridType="Collection" '
+                    f'CollectionType="Temporal">{grids}</Grid></Domain></Xdmf>')
+    whole, _ = _measured(write_uniform(tmp_path / "whole.xdmf", SHAPE_3D))
+    result, said = _measured(str(path))
+    assert not said and result.steps["time"].tolist() == list(TIMES)
+    for column in whole.steps.columns:  # our threshold: equal to round-off
+        np.testing.assert_allclose(result.steps[column], whole.steps[column], rtol=1e-12, atol=1e-15)
 
 
 def test_a_piece_taking_its_mesh_from_nowhere_is_named(tmp_path):

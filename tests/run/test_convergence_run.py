@@ -1,5 +1,6 @@
 """The convergence command: three runs of one case, measured here or read from measure folders."""
 
+import dataclasses
 import json
 import os
 import warnings
@@ -427,3 +428,85 @@ def test_quantities_agreeing_on_the_three_meshes_are_not_warned_of_as_off_the_tr
     with pytest.warns(ResolutionWarning, match=r"apparent order above 5 \(our threshold\) for phase_volume at "
                                                r"t = 0, 0.1, 0.2.*off the trend"):
         grid_convergence_run(*odd, options=options)
+
+
+@pytest.mark.parametrize("slip, words", [
+    ({"mixing_target": 0.95}, "--mixing-target: 0.9 (fine, medium) against 0.95 (coarse)"),
+    ({"densities": (2.0, 1.0)}, "--densities: 1,1 (fine, medium) against 2,1 (coarse)"),
+    ({"time_from": 0.1}, "--time-from: not given (fine, medium) against 0.1 (coarse)")])
+def test_every_option_that_changes_a_figure_is_compared(tmp_path, slip, words):
+    # a coarse folder measured with another mixing target (or densities, or a later first step: the drift's
+    # reference) was paired without a word: a mixing length's p of 11-15 and a GCI of 5e-6. Measured alike the
+    # three runs give p = 2 (midpoint rule of x^2, analytic; see _series)
+    paths = _three(tmp_path)
+    same = dict(field="c", analyses=("conservation",), section_axis="x", densities=(1.0, 1.0))
+    folders = _folders(tmp_path, paths, lambda k: MeasureOptions(**{**same, **(slip if k == 2 else {})}))
+    with pytest.raises(OptionError, match=words.replace("(", r"\(").replace(")", r"\)")):
+        grid_convergence_run(*folders)
+    alike = [str(f) for f in _folders(tmp_path / "alike", paths, lambda k: MeasureOptions(**same))]
+    key, value = next(iter(slip.items()))
+    with pytest.raises(OptionError, match=f"--{key.replace('_', '-')} .* was given, but the fine, medium and "
+                                          "coarse runs"):  # typed against the folders' own
+        grid_convergence_run(*alike, options=MeasureOptions(**{**same, **slip}))
+    rows = grid_convergence_run(*alike).table
+    assert rows[rows["quantity"] == "phase_volume"]["apparent_order"].to_numpy() == pytest.approx(2.0, rel=1e-6)
+
+
+def test_options_that_cannot_change_a_figure_are_not_compared(tmp_path):
+    # every measure option is compared but a short list, each with its reason; runs measured with another drift
+    # tolerance, more analyses or a later last time are accepted (p = 2, midpoint rule of x^2, analytic), and the
+    # manifest keeps each run's own options
+    from phasegauge.run._convergence_options import MEASURING_OPTIONS, NOT_COMPARED_OPTIONS
+
+    names = {f.name for f in dataclasses.fields(MeasureOptions)}
+    assert set(MEASURING_OPTIONS) | set(NOT_COMPARED_OPTIONS) == names
+    assert not set(MEASURING_OPTIONS) & set(NOT_COMPARED_OPTIONS) and set(NOT_COMPARED_OPTIONS) <= names
+    assert {"velocity", "mixing_target", "section_count", "inflow_mean", "densities", "model", "free_energy",
+            "capillary_length", "bulk_widths", "steps", "every"} <= set(MEASURING_OPTIONS)
+    paths = _three(tmp_path)
+    same = dict(field="c", analyses=("conservation",))
+    other = dict(drift_tolerance=0.5, analyses=("interface", "conservation"), time_to=0.2, strict=True)
+    folders = _folders(tmp_path, paths, lambda k: MeasureOptions(**{**same, **(other if k == 2 else {})}))
+    result = grid_convergence_run(*folders, out=tmp_path / "conv")
+    rows = result.table[result.table["quantity"] == "phase_volume"]
+    assert rows["apparent_order"].to_numpy() == pytest.approx(2.0, rel=1e-6)
+    manifest = json.loads((tmp_path / "conv" / "manifest.json").read_text())
+    assert [m["options"]["drift_tolerance"] for m in manifest["meshes"]] == [1e-3, 1e-3, 0.5]
+    # a run measured without sections or densities wrote none of the columns they change: accepted beside one
+    # measured with them (the mass and mixing columns are then not in the table)
+    columns = _folders(tmp_path / "columns", paths, lambda k: MeasureOptions(
+        **same, **(dict(section_axis="x", mixing_target=0.95, densities=(2.0, 1.0)) if k == 0 else {})))
+    table = grid_convergence_run(*columns).table
+    assert "phase_mass" not in set(table["quantity"]) and "phase_volume" in set(table["quantity"])
+    # a folder whose record says it was measured flow-weighted (--velocity U) is refused by name
+    record = json.loads((folders[2] / "manifest.json").read_text())
+    record["options"]["velocity"] = "U"
+    (folders[2] / "manifest.json").write_text(json.dumps(record))
+    with pytest.raises(OptionError, match=r"different --velocity: not given \(fine, medium\) against U \(coarse\)"):
+        grid_convergence_run(*folders)
+
+
+def _cube_series(folder, n, times):
+    """c = x^2 (1 - t/2) on cells of an n x n x n unit-cube grid of hexahedra: the phase volume is the midpoint
+    rule's (1/3 - h^2/12)(1 - t/2), h = 1/n (as _series), the cell size (1 / n^3)^(1/3) = 1/n, so p = 2."""
+    os.makedirs(folder, exist_ok=True)
+    mesh = grid_mesh((n, n, n), kind="hexahedron")
+    x = mesh.cell_centroids[:, 0]
+    return write_listing(folder, ((t, f"s_{k}.vtu", mesh, {"c": x ** 2 * (1 - t / 2)}) for k, t in enumerate(times)))
+
+
+def test_keep_3d_on_a_real_3d_mesh_matches_series_measured_without_it(tmp_path):
+    # a fine folder measured with --keep-3d on a 3D mesh (not one cell thick: it changes nothing there) beside
+    # series given without it was refused as "different --keep-3d"; now accepted, with p = 2 (midpoint rule of
+    # x^2 on cubes, analytic); on slabs one cell thick the same pair is still refused, once the series are read
+    same = dict(field="c", analyses=("conservation",))
+    cubes = [_cube_series(str(tmp_path / f"cube{n}"), n, [0.0, 0.2]) for n in (16, 10, 7)]
+    fine = _folders(tmp_path / "kept", cubes[:1], lambda k: MeasureOptions(**same, keep_3d=True))[0]
+    result = grid_convergence_run(fine, *cubes[1:], options=MeasureOptions(**same))
+    assert [s.cell_size for s in result.sources] == pytest.approx([1 / 16, 1 / 10, 1 / 7], rel=1e-12)
+    rows = result.table[result.table["quantity"] == "phase_volume"]
+    assert rows["apparent_order"].to_numpy() == pytest.approx(2.0, rel=1e-6)
+    slabs = [_series(str(tmp_path / f"slab{n}"), n, [0.0, 0.2], depth=0.01) for n in CELLS]
+    thin = _folders(tmp_path / "thin", slabs[:1], lambda k: MeasureOptions(**same, keep_3d=True))[0]
+    with pytest.raises(OptionError, match=r"different --keep-3d: on \(fine\) against off \(medium, coarse\)"):
+        grid_convergence_run(thin, *slabs[1:], options=MeasureOptions(**same))

@@ -1,7 +1,7 @@
 """meshio's XDMF time-series reader behind the project's model: an XDMF temporal collection, grid by grid.
 
 meshio's ``TimeSeriesReader`` reads the numbers (the HDF5 or inline DataItems); the
-XML around them is looked at here first. Three things are told to it:
+XML around them is looked at here first. Four things are told to it:
 
 * the grids of the collection are its steps: other children of the collection (a
   collection-level ``<Time TimeType="List">``) are left out of its list, so step k
@@ -9,6 +9,9 @@ XML around them is looked at here first. Three things are told to it:
 * forms it does not read (:func:`._xdmf_forms.form_problem`) are refused by name before it
   reads, and a Topology's ``BaseOffset`` (which it does not read) is subtracted from the
   corner numbers it gives;
+* a grid's Topology and Geometry taken from another grid (an ``xi:include`` in a piece, a
+  ``Reference`` path on them or on their DataItems, a reference to a reference) are put in a
+  copy of the grid before it reads (:func:`_mesh_resolved`); grids taking one mesh share it;
 * a version 2 file is handed to it too: its constructor refuses any version but 3, but
   nothing else of it depends on the version (it takes the names of both, ``TopologyType``
   / ``Type`` and ``DataType`` / ``NumberType``), so the constructor's finding of the
@@ -21,6 +24,7 @@ and the pieces joined as the pieces of a ``.pvtu`` step are (:func:`read_pieces`
 
 from __future__ import annotations
 
+import copy
 import pathlib
 import warnings
 import xml.etree.ElementTree as ET
@@ -169,8 +173,11 @@ def _holds_nothing(piece) -> bool:
 
 
 _XINCLUDE = "{http://www.w3.org/2001/XInclude}include"
-_REUSE_FIX = ("write the piece's Topology and Geometry in it, or take them from a grid of this file by an "
-              "xi:include xpointer or a DataItem Reference=\"XML\" path that finds them")
+_MESH_PARTS = ("Topology", "Geometry")
+_REUSE_FIX = ("write the Topology and Geometry in the grid, or take them from another grid of this file by an "
+              "xi:include xpointer or a Reference path that finds them")
+#: references followed from one element before the chain is refused (our threshold: writers chain one or two)
+_MOST_REFERENCES = 16
 
 
 def _found(domain, path: str, at: str, what: str) -> list:
@@ -210,33 +217,79 @@ def _included(node, domain, at: str) -> list:
     return _found(domain, expression, at, "the xi:include xpointer")
 
 
+def _reference_path(node):
+    """The XPath of an element's ``Reference`` (XDMF Model and Format): its text for ``Reference="XML"``, else
+    the attribute's value; None without one."""
+    reference = (node.get("Reference") or "").strip()
+    if not reference:
+        return None
+    return (node.text or "") if reference.upper() == "XML" else reference
+
+
+def _dereferenced(node, domain, at: str):
+    """The element ``node`` stands for: itself without a ``Reference``, else the element of the same tag its
+    path finds, followed until one holds no ``Reference`` (a chain that comes back to an element, or longer
+    than :data:`_MOST_REFERENCES`, refused by name)."""
+    seen = []
+    while True:
+        path = _reference_path(node)
+        if path is None:
+            return node
+        if any(node is other for other in seen) or len(seen) >= _MOST_REFERENCES:
+            raise UnsupportedMeshError(f"the {node.tag} Reference {path.strip()!r} "
+                                       + ("leads back to an element it started from (a cycle)"
+                                          if any(node is other for other in seen)
+                                          else f"starts a chain of more than {_MOST_REFERENCES} references"),
+                                       where=at, fix="make the references end at a DataItem, Topology or "
+                                                     "Geometry that holds the numbers")
+        seen.append(node)
+        found = _found(domain, path, at, f"the {node.tag} Reference")[0]
+        if found.tag != node.tag:
+            raise UnsupportedMeshError(f"the {node.tag} Reference {path.strip()!r} finds a {found.tag}, not a "
+                                       f"{node.tag}", where=at, fix=_REUSE_FIX)
+        node = found
+
+
+def _references(node) -> bool:
+    """Whether a Topology or Geometry, or one of its DataItems, stands for another element by a Reference."""
+    return _reference_path(node) is not None or any(item.tag == "DataItem" and _reference_path(item) is not None
+                                                    for item in node)
+
+
+def _part_resolved(part, domain, at: str):
+    """A Topology or Geometry with its own and its DataItems' references followed (a copy where a DataItem
+    is replaced; the element found where only the part itself refers)."""
+    found = _dereferenced(part, domain, at)
+    items = [_dereferenced(item, domain, at) if item.tag == "DataItem" else item for item in found]
+    if all(a is b for a, b in zip(items, found)):
+        return found
+    resolved = copy.copy(found)  # the file's own XML unchanged
+    resolved[:] = items
+    return resolved
+
+
 def _mesh_resolved(piece, domain, at: str):
-    """The piece with the Topology and Geometry it takes from another grid written in (a copy; the piece
-    itself where it takes none): an ``xi:include`` of them, or their DataItems given as
-    ``Reference="XML"`` paths. A static mesh's later steps take the first step's so."""
-    import copy
-
-    def referred(item):
-        if item.tag != "DataItem" or (item.get("Reference") or "").upper() != "XML":
-            return item
-        return _found(domain, item.text or "", at, "the DataItem Reference")[0]
-
-    if not any(n.tag == _XINCLUDE or n.tag in ("Topology", "Geometry") and any(referred(i) is not i for i in n)
-               for n in piece):
+    """The grid with the Topology and Geometry it takes from another grid written in (a copy; the grid itself
+    where it takes none): an ``xi:include`` of them, a Topology or Geometry whose ``Reference`` holds the
+    path of one (in the attribute, or as its text with ``Reference="XML"``), or their DataItems given so; a
+    reference to a reference is followed (:func:`_dereferenced`). A static mesh's later steps take the first
+    step's so."""
+    if not any(n.tag == _XINCLUDE or n.tag in _MESH_PARTS and _references(n) for n in piece):
         return piece
     resolved = copy.copy(piece)  # the file's own XML unchanged
     children = []
     for node in piece:
-        if node.tag == _XINCLUDE:
-            children.extend(_included(node, domain, at))
-        elif node.tag in ("Topology", "Geometry"):
-            part = copy.copy(node)
-            part[:] = [referred(item) for item in node]
-            children.append(part)
-        else:
-            children.append(node)
+        parts = _included(node, domain, at) if node.tag == _XINCLUDE else [node]
+        children.extend(_part_resolved(part, domain, at) if part.tag in _MESH_PARTS else part for part in parts)
     resolved[:] = children
     return resolved
+
+
+def _mesh_key(grid) -> tuple:
+    """What a grid's mesh is read from, for telling grids that share one: its Topology's and Geometry's tags,
+    attributes and DataItems (elements of the file, kept while it is open)."""
+    return tuple((part.tag, tuple(sorted(part.attrib.items())), tuple(id(item) for item in part))
+                 for part in grid if part.tag in _MESH_PARTS)
 
 
 def read_pieces(reader, collection, path: str, where: str):
@@ -244,7 +297,8 @@ def read_pieces(reader, collection, path: str, where: str):
 
     Each piece's points, cells and fields are read by meshio's ``TimeSeriesReader`` (its mesh grid and
     its step set to the piece), its ``BaseOffset`` applied; a Topology and Geometry taken from another grid
-    (``xi:include``, ``Reference="XML"``: a static mesh written once) are read from there
+    (``xi:include``, a ``Reference`` path on them or on their DataItems: a static mesh written once) are read
+    from there
     (:func:`_mesh_resolved`); pieces holding nothing (a process that owns
     no cells) are left out, and so are pieces whose cells are all of a lower dimension than another's
     (boundary patches, named in a note). The pieces are joined as the pieces of a ``.pvtu`` step are
@@ -259,8 +313,6 @@ def read_pieces(reader, collection, path: str, where: str):
         A piece's form is not read (:func:`._xdmf_forms.form_problem`), or the mesh it takes from
         another grid is not found.
     """
-    import copy
-
     import meshio
 
     from ._multiblock import join_pieces, without_patches
@@ -344,9 +396,12 @@ class XdmfTimeSeries:
         if is_collection(node, "spatial"):
             self._points_key = None  # the reader's points and cells are the last piece's
             return grid, self._guarded(lambda: read_pieces(reader, node, self.path, where), where)
-        own_mesh = any(child.tag in ("Topology", "Geometry") for child in node)
+        own_mesh = any(child.tag in _MESH_PARTS for child in node)
         key = grid if own_mesh else "shared"
         mesh_grid = node if own_mesh else self._shared_grid
+        resolved = self._guarded(lambda: _mesh_resolved(mesh_grid, reader.domain, where), where)
+        if resolved is not mesh_grid:  # taken from another grid by reference: grids taking one mesh share it
+            key, mesh_grid = ("taken", _mesh_key(resolved)), resolved
         problem = form_problem(mesh_grid, where)
         if problem is not None:
             raise problem

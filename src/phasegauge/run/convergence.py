@@ -18,20 +18,15 @@ from dataclasses import dataclass, field
 
 from ..errors import (InputError, InputFileNotFound, MeshWarning, OptionError, PhasegaugeWarning,
                       ResolutionWarning, SeriesWarning)
+from ._convergence_options import (MEASURING_OPTIONS, as_json, check_given_options, check_same_options, location_read,
+                                   measured_with)
+from ._convergence_options import given_options as _given_options
 
 __all__ = ["ConvergenceSource", "ConvergenceResult", "grid_convergence_run", "is_measure_folder",
            "MESH_NAMES", "MEASURING_OPTIONS"]
 
 #: the three meshes, finest first
 MESH_NAMES = ("fine", "medium", "coarse")
-
-#: measure options that change the figures: the three runs must share them (named as on the command line)
-MEASURING_OPTIONS = ("field", "range", "phase", "level", "level_set", "field_location", "interface_kind", "box",
-                     "periodic", "keep_3d", "adjacency")
-
-#: options given with measure folders that are compared with the folders' own (they cannot apply to a folder)
-FOLDER_CHECKED_OPTIONS = MEASURING_OPTIONS + ("velocity",)
-
 
 @dataclass
 class ConvergenceSource:
@@ -116,7 +111,7 @@ def _read_folder(source: ConvergenceSource) -> None:
     source.series_path = str((manifest.get("series") or {}).get("path", ""))
     source.time_origin = str((manifest.get("series") or {}).get("time_origin", ""))
     source.options = dict(manifest.get("options") or {})
-    source.location_read = _location_read((manifest.get("series") or {}).get("field_read"))
+    source.location_read = location_read((manifest.get("series") or {}).get("field_read"))
     source.field = str((manifest.get("options") or {}).get("field", ""))
     source.keep_3d = bool((manifest.get("options") or {}).get("keep_3d", False))
     try:
@@ -157,6 +152,8 @@ def _mesh_size(source: ConvergenceSource, known: bool, options=None) -> None:
     source.n_cells = int(mesh.n_whole_cells)
     source.dimension = int(mesh.dimension)
     source.total_measure = float(mesh.total_measure)
+    if source.kind == "series":  # as its measure run will record them
+        source.recorded_dimension, source.recorded_depth = source.dimension, source.depth
 
 
 def _times_words(times, shown: int = 3) -> str:
@@ -193,116 +190,6 @@ def _unpaired_warning(fine_times, paired, sources) -> str:
                       for s in sources[1:] if len(s.steps) > 1)
     return (f"the fine run's times {_times_words(left)} lie outside the other runs' time spans ({spans}) and are "
             "left out of the pairing; run the three meshes over the same times to compare them there")
-
-
-def _as_json(value):
-    """``value`` as the manifest holds it (tuples as lists, objects as text)."""
-    import json
-
-    return json.loads(json.dumps(value, default=str))
-
-
-def _option_words(value) -> str:
-    if isinstance(value, bool):
-        return "on" if value else "off"
-    if value is None:
-        return "not given"
-    if isinstance(value, list):
-        return ",".join(_option_words(v) for v in value) or "none"
-    return f"{value:g}" if isinstance(value, float) else str(value)
-
-
-def _location_read(field_read) -> str:
-    """Where a run read its field, from its manifest's ``field_read`` line ("" when not recorded)."""
-    import re
-
-    found = re.search(r"': (cell|point) data", str(field_read or ""))
-    return found.group(1) if found else ""
-
-
-def _measured_words(key, value, source=None):
-    """An option's value as what it measured, in words; None where it matches any.
-
-    Periodic axes are a set; the field location ``auto`` is the location ``source`` read the field
-    from (None where unknown); ``keep_3d`` off on a mesh ``source`` measured in 3D, or on a 2D mesh,
-    changed nothing (a mesh one cell thick measured as 2D records its depth) and matches any.
-    """
-    value = _as_json(value)
-    if key == "periodic" and isinstance(value, list):
-        value = sorted(str(v) for v in value)
-    if key == "field_location" and value in (None, "auto"):
-        return (source.location_read or None) if source is not None else None
-    if key == "keep_3d" and source is not None and source.recorded_dimension in (2, 3):
-        if source.recorded_dimension == 2 and not source.recorded_depth:
-            return None  # a 2D mesh: keep_3d has nothing to keep
-        if source.recorded_dimension == 3 and not value:
-            return None  # measured in 3D without it: not a mesh one cell thick
-    return _option_words(value)
-
-
-def _check_same_options(sources) -> None:
-    """Refuse runs measured with different options that change the figures (:data:`MEASURING_OPTIONS`).
-
-    What was measured is compared: periodic axes as a set, the field location as the location read
-    (``auto`` where that is not known yet matches either), ``keep_3d`` only where the mesh is one cell
-    thick. A run whose manifest lacks an option (an older measure run) is not compared on it.
-    """
-    for key in MEASURING_OPTIONS:
-        groups = {}
-        for source in sources:
-            if key in source.options:
-                words = _measured_words(key, source.options[key], source)
-                if words is not None:
-                    groups.setdefault(words, []).append(source)
-        if len(groups) > 1:
-            (first, runs), (second, others) = list(groups.items())[:2]
-            names = [", ".join(s.name for s in group) for group in (runs, others)]
-            flag = "--" + key.replace("_", "-")
-            raise OptionError(f"the runs were measured with different {flag}: {first} ({names[0]}) against "
-                              f"{second} ({names[1]}), so their figures are not those of one case",
-                              where=others[0].path,
-                              fix="measure the runs with the same options (or give the three series with the "
-                                  "options once)")
-
-
-def _given_options(options, given_options) -> dict:
-    """The measuring options given explicitly: ``given_options``, else those of ``options`` off their defaults."""
-    if given_options is not None:
-        return {k: v for k, v in dict(given_options).items() if k in FOLDER_CHECKED_OPTIONS}
-    if options is None:
-        return {}
-    defaults = type(options)(field=options.field)
-    return {k: getattr(options, k) for k in FOLDER_CHECKED_OPTIONS
-            if hasattr(options, k) and _as_json(getattr(options, k)) != _as_json(getattr(defaults, k))}
-
-
-def _check_given_options(sources, given: dict) -> None:
-    """Refuse measuring options given with measure folders measured otherwise: they cannot apply to a folder."""
-    folders = [s for s in sources if s.kind == "measure folder"]
-    for key, value in given.items():
-        flag = "--" + key.replace("_", "-")
-        odd = [s for s in folders if key in s.options
-               and _measured_words(key, value) is not None
-               and _measured_words(key, s.options[key], s) not in (None, _measured_words(key, value))]
-        if odd:
-            own, typed = _measured_words(key, odd[0].options[key], odd[0]), _measured_words(key, value)
-            names = ", ".join(s.name for s in odd[:-1]) + (" and " if len(odd) > 1 else "") + odd[-1].name
-            one = len(odd) == 1
-            if isinstance(value, bool):
-                given_words, own_words = flag if value else f"no {flag}", f"with{'' if own == 'on' else 'out'} it"
-            else:
-                given_words, own_words = f"{flag} {typed}", f"with {flag} {own}"
-            raise OptionError(f"{given_words} was given, but the {names} run{'' if one else 's'} "
-                              f"(measure folder{'' if one else 's'}) {'was' if one else 'were'} measured {own_words}: "
-                              "a folder's figures are not measured again", where=odd[0].path,
-                              fix=f"measure {'it' if one else 'them'} again with {given_words} (or give "
-                                  f"{'its series' if one else 'their series'}), or leave {flag} out")
-
-
-def _measured_with(sources):
-    """The options the figures were measured with: a series' (measured here), else the fine folder's."""
-    measured = [s for s in sources if s.kind == "series"] or [s for s in sources if s.options]
-    return measured[0].options if measured else None
 
 
 def _numbered(source) -> bool:
@@ -484,12 +371,13 @@ def _run(fine, medium, coarse, *, options, given, cell_sizes, safety_factor, for
                 raise OptionError(f"the {name} input is a series, so the field to measure is needed", where=path,
                                   fix="give --field (and --range, --phase as for measure)")
             source.series_path, source.field = os.path.abspath(path), options.field
-            source.options = _as_json(dataclasses.asdict(options))
+            source.options = as_json(dataclasses.asdict(options))
         sources.append(source)
-    _check_same_options(sources)
-    _check_given_options(sources, given)
+    check_same_options(sources)
+    check_given_options(sources, given)
     for source in sources:
         _mesh_size(source, known=sizes is not None, options=options)
+    check_same_options(sources)  # again, with the series' meshes read: keep_3d where one is one cell thick
     if sizes is None:
         dims = {s.dimension for s in sources}
         if len(dims) != 1:
@@ -532,12 +420,12 @@ def _run(fine, medium, coarse, *, options, given, cell_sizes, safety_factor, for
             source.time_origin = "+".join(dict.fromkeys(r.time_origin for r in res.results
                                                         if r.skipped is None and r.time_origin))
             done = [r for r in res.results if r.skipped is None]
-            source.location_read = next((_location_read(r.field_source) for r in done
+            source.location_read = next((location_read(r.field_source) for r in done
                                          if getattr(r, "field_source", "")), "")
             source.recorded_dimension = int(getattr(done[0], "dimension", 0) or 0) if done else 0
             source.recorded_depth = float(next((r.metrics["depth"] for r in done if "depth" in (r.metrics or {})),
                                                0.0))
-    _check_same_options(sources)  # again, with the field location the series were read from
+    check_same_options(sources)  # again, with where the series read the field
     notes = []
     pairing = _time_pairing_warning(sources)
     if pairing:
@@ -571,7 +459,7 @@ def _run(fine, medium, coarse, *, options, given, cell_sizes, safety_factor, for
 
         write_convergence_report(out, table, sources=[s.record() for s in sources], safety_factor=safety_factor,
                                  formal_order=formal_order,
-                                 options=_measured_with(sources),
+                                 options=measured_with(sources),
                                  version=package_version(), started=started, notes=notes,
                                  time_origin=shared_time_origin([s.time_origin for s in sources]))
     return result
