@@ -13,6 +13,7 @@ mesh built by numpy.
 
 import contextlib
 import pathlib
+import re
 import warnings
 
 import h5py
@@ -374,8 +375,6 @@ def _reusing(path, form):
     ('item_attribute'), by the Topology and Geometry themselves referring ('element_attribute': the path in the
     attribute; 'element_xml': Reference="XML" and the path as text), or by step 2's DataItems referring to
     step 1's, which refer to step 0's ('chain')."""
-    import re
-
     text = path.read_text().replace('<Xdmf Version="3.0">',
                                     '<Xdmf Version="3.0" xmlns:xi="http://www.w3.org/2001/XInclude">')
     steps = text.split('<Grid Name="step')
@@ -482,6 +481,91 @@ def test_a_piece_taking_its_mesh_from_nowhere_is_named(tmp_path):
     with phasegauge.open_series(str(path)) as series:
         assert series.read(0).mesh.n_cells == 2000
         with pytest.raises(UnsupportedMeshError, match=r"pieces.xdmf, step 1, piece p1: the xi:include xpointer "
-                                                       r"'.//Grid\[@Name=\"step0\"\]/Grid\[@Name=\"q1\"\]' finds "
+                                                       r"'//Grid\[@Name=\"step0\"\]/Grid\[@Name=\"q1\"\]' finds "
                                                        r"nothing in the file"):
+            series.read(1)
+
+
+FIELD_REFERENCES = ("item_xml", "item_attribute", "element_attribute")
+
+
+def _x_cell_taken(form, step0):
+    """Steps 1 and 2's Attribute x_cell (a static field) taken from ``step0`` (the XPath of step 0's grid or
+    piece) by Reference (XDMF Model and Format: any element may be a reference): its DataItem with
+    Reference="XML" and the path as text ('item_xml') or the path in the attribute ('item_attribute'), or the
+    Attribute itself referring ('element_attribute')."""
+    target = f"{step0}/Attribute[@Name='x_cell']"
+    if form == "element_attribute":
+        return f'<Attribute Reference="{target}"/>'
+    item = (f'<DataItem Reference="XML">{target}/DataItem</DataItem>' if form == "item_xml"
+            else f'<DataItem Reference="{target}/DataItem"/>')
+    return f'<Attribute Name="x_cell" AttributeType="Scalar" Center="Cell">{item}</Attribute>'
+
+
+def _x_cell_is_the_cells_x(path, step):
+    # outside check (numpy): x_cell was written as the mean x of each cell's corners
+    mesh, fields, _ = _mesh(path, step=step)
+    corners = np.concatenate([mesh.points[block.connectivity].mean(axis=1)[:, 0] for block in mesh.blocks])
+    np.testing.assert_allclose(fields.cell_data["x_cell"], corners, rtol=1e-12)
+
+
+@pytest.mark.parametrize("layout", ["uniform", "pieces"])
+@pytest.mark.parametrize("form", FIELD_REFERENCES)
+def test_a_field_written_once_and_taken_by_reference_reads_as_written_whole(tmp_path, form, layout):
+    # a static cell field written in step 0 only, later steps' Attribute taking it by Reference: every later
+    # step was skipped ("cannot read the step's data ... HDF5 files ... complete", 1 step measured, exit 0).
+    # Reference: the same mesh and fields written in every step by meshio's time-series writer
+    if layout == "pieces":
+        path = pathlib.Path(_reusing(pathlib.Path(write_pieces(tmp_path / "series.xdmf", SHAPE_3D, 2)), "include"))
+        steps = path.read_text().split('<Grid Name="step')
+        for k in range(2, len(steps)):
+            steps[k] = re.sub(r'(<Grid Name="(p\d)" GridType="Uniform">.*?)<Attribute Name="x_cell".*?</Attribute>',
+                              lambda m: m.group(1) + _x_cell_taken(
+                                  form, f"/Xdmf/Domain/Grid/Grid[1]/Grid[@Name='{m.group(2)}']"), steps[k],
+                              flags=re.S)
+        path.write_text('<Grid Name="step'.join(steps))
+        taken = 4  # 2 steps, 2 pieces
+    else:
+        path = tmp_path / "series.xdmf"
+        points, cells = _box(SHAPE_3D, range(SHAPE_3D[0]))
+        with h5py.File(path.with_suffix(".h5"), "w") as h5:
+            grids = []
+            for k, t in enumerate(TIMES):
+                point_data, cell_data = _fields(points, cells, t)
+                mesh = (f'<Topology TopologyType="Hexahedron" NumberOfElements="{len(cells)}">'
+                        f'{_item(h5, "cells", cells, "series.h5")}</Topology><Geometry GeometryType="XYZ">'
+                        f'{_item(h5, "points", points, "series.h5")}</Geometry>' if k == 0 else
+                        '<Topology Reference="/Xdmf/Domain/Grid/Grid[1]/Topology"/>'
+                        '<Geometry Reference="/Xdmf/Domain/Grid/Grid[1]/Geometry"/>')
+                x_cell = (f'<Attribute Name="x_cell" AttributeType="Scalar" Center="Cell">'
+                          f'{_item(h5, "x_cell", cell_data["x_cell"], "series.h5")}</Attribute>' if k == 0
+                          else _x_cell_taken(form, "/Xdmf/Domain/Grid/Grid[1]"))
+                grids.append(f'<Grid Name="s{k}" GridType="Uniform"><Time Value="{t!r}"/>{mesh}'
+                             f'<Attribute Name="c" Center="Node">{_item(h5, f"c{k}", point_data["c"], "series.h5")}'
+                             f'</Attribute>{x_cell}</Grid>')
+        path.write_text('<?xml version="1.0"?><Xdmf Version="3.0"><Domain><Grid Name="run" GridType="Collection" '
+                        f'CollectionType="Temporal">{"".join(grids)}</Grid></Domain></Xdmf>')
+        taken = 2
+    assert path.read_text().count("x_cell']") == taken
+    whole, _ = _measured(write_uniform(tmp_path / "whole.xdmf", SHAPE_3D))
+    result, said = _measured(str(path))
+    assert not said and result.steps["time"].tolist() == list(TIMES)
+    for column in whole.steps.columns:  # our threshold: equal to round-off
+        np.testing.assert_allclose(result.steps[column], whole.steps[column], rtol=1e-12, atol=1e-15)
+    _x_cell_is_the_cells_x(str(path), 2)
+
+
+def test_a_field_taken_from_nowhere_is_named_with_the_files_path(tmp_path):
+    path = pathlib.Path(_reusing(pathlib.Path(write_pieces(tmp_path / "pieces.xdmf", SHAPE_3D, 2)), "include"))
+    steps = path.read_text().split('<Grid Name="step')
+    steps[2] = re.sub(r'<Attribute Name="x_cell".*?</Attribute>',
+                      _x_cell_taken("item_attribute", "/Xdmf/Domain/Grid/Grid[1]/Grid[@Name='q9']"), steps[2],
+                      count=1, flags=re.S)
+    path.write_text('<Grid Name="step'.join(steps))
+    with phasegauge.open_series(str(path)) as series:
+        assert series.read(0).mesh.n_cells == 2000
+        with pytest.raises(UnsupportedMeshError, match=r"pieces.xdmf, step 1, piece p0: the DataItem Reference "
+                                                       r"\"/Xdmf/Domain/Grid/Grid\[1\]/Grid\[@Name='q9'\]/Attribute"
+                                                       r"\[@Name='x_cell'\]/DataItem\" finds nothing in the file; "
+                                                       r"write the field's DataItem in the grid"):
             series.read(1)

@@ -11,7 +11,9 @@ XML around them is looked at here first. Four things are told to it:
   corner numbers it gives;
 * a grid's Topology and Geometry taken from another grid (an ``xi:include`` in a piece, a
   ``Reference`` path on them or on their DataItems, a reference to a reference) are put in a
-  copy of the grid before it reads (:func:`_mesh_resolved`); grids taking one mesh share it;
+  copy of the grid before it reads (:func:`_mesh_resolved`); grids taking one mesh share it; a
+  field's Attribute taken so (by a ``Reference`` on it or on its DataItem) is put in a copy of the
+  step's grid the same way (:func:`_fields_resolved`);
 * a version 2 file is handed to it too: its constructor refuses any version but 3, but
   nothing else of it depends on the version (it takes the names of both, ``TopologyType``
   / ``Type`` and ``DataType`` / ``NumberType``), so the constructor's finding of the
@@ -176,14 +178,16 @@ _XINCLUDE = "{http://www.w3.org/2001/XInclude}include"
 _MESH_PARTS = ("Topology", "Geometry")
 _REUSE_FIX = ("write the Topology and Geometry in the grid, or take them from another grid of this file by an "
               "xi:include xpointer or a Reference path that finds them")
+_FIELD_FIX = ("write the field's DataItem in the grid, or take it from another grid of this file by a Reference "
+              "path that finds its Attribute or DataItem")
 #: references followed from one element before the chain is refused (our threshold: writers chain one or two)
 _MOST_REFERENCES = 16
 
 
-def _found(domain, path: str, at: str, what: str) -> list:
+def _found(domain, path: str, at: str, what: str, fix: str = _REUSE_FIX) -> list:
     """The elements an XPath of the XDMF file finds (``//Grid[@Name='a']/Grid[1]``, ``/Xdmf/Domain/Grid/...``),
     searched from the Domain as ElementTree's paths read them."""
-    path = path.strip()
+    written = path = path.strip()  # messages show the path as the file writes it
     if path.startswith("/Xdmf/Domain/"):
         path = "./" + path[len("/Xdmf/Domain/"):]
     elif path.startswith("//"):
@@ -191,10 +195,10 @@ def _found(domain, path: str, at: str, what: str) -> list:
     try:
         found = domain.findall(path) if path else []
     except (SyntaxError, KeyError, TypeError) as exc:
-        raise UnsupportedMeshError(f"{what} {path!r} is not a path that is read ({short_text(exc)})", where=at,
-                                   fix=_REUSE_FIX) from None
+        raise UnsupportedMeshError(f"{what} {written!r} is not a path that is read ({short_text(exc)})", where=at,
+                                   fix=fix) from None
     if not found:
-        raise UnsupportedMeshError(f"{what} {path!r} finds nothing in the file", where=at, fix=_REUSE_FIX)
+        raise UnsupportedMeshError(f"{what} {written!r} finds nothing in the file", where=at, fix=fix)
     return found
 
 
@@ -226,7 +230,7 @@ def _reference_path(node):
     return (node.text or "") if reference.upper() == "XML" else reference
 
 
-def _dereferenced(node, domain, at: str):
+def _dereferenced(node, domain, at: str, fix: str = _REUSE_FIX):
     """The element ``node`` stands for: itself without a ``Reference``, else the element of the same tag its
     path finds, followed until one holds no ``Reference`` (a chain that comes back to an element, or longer
     than :data:`_MOST_REFERENCES`, refused by name)."""
@@ -240,27 +244,28 @@ def _dereferenced(node, domain, at: str):
                                        + ("leads back to an element it started from (a cycle)"
                                           if any(node is other for other in seen)
                                           else f"starts a chain of more than {_MOST_REFERENCES} references"),
-                                       where=at, fix="make the references end at a DataItem, Topology or "
-                                                     "Geometry that holds the numbers")
+                                       where=at, fix="make the references end at a DataItem, Topology, "
+                                                     "Geometry or Attribute that holds the numbers")
         seen.append(node)
-        found = _found(domain, path, at, f"the {node.tag} Reference")[0]
+        found = _found(domain, path, at, f"the {node.tag} Reference", fix)[0]
         if found.tag != node.tag:
             raise UnsupportedMeshError(f"the {node.tag} Reference {path.strip()!r} finds a {found.tag}, not a "
-                                       f"{node.tag}", where=at, fix=_REUSE_FIX)
+                                       f"{node.tag}", where=at, fix=fix)
         node = found
 
 
 def _references(node) -> bool:
-    """Whether a Topology or Geometry, or one of its DataItems, stands for another element by a Reference."""
+    """Whether a Topology, Geometry or Attribute, or one of its DataItems, stands for another element by a
+    Reference."""
     return _reference_path(node) is not None or any(item.tag == "DataItem" and _reference_path(item) is not None
                                                     for item in node)
 
 
-def _part_resolved(part, domain, at: str):
-    """A Topology or Geometry with its own and its DataItems' references followed (a copy where a DataItem
-    is replaced; the element found where only the part itself refers)."""
-    found = _dereferenced(part, domain, at)
-    items = [_dereferenced(item, domain, at) if item.tag == "DataItem" else item for item in found]
+def _part_resolved(part, domain, at: str, fix: str = _REUSE_FIX):
+    """A Topology, Geometry or Attribute with its own and its DataItems' references followed (a copy where a
+    DataItem is replaced; the element found where only the part itself refers)."""
+    found = _dereferenced(part, domain, at, fix)
+    items = [_dereferenced(item, domain, at, fix) if item.tag == "DataItem" else item for item in found]
     if all(a is b for a, b in zip(items, found)):
         return found
     resolved = copy.copy(found)  # the file's own XML unchanged
@@ -285,6 +290,18 @@ def _mesh_resolved(piece, domain, at: str):
     return resolved
 
 
+def _fields_resolved(grid, domain, at: str):
+    """The grid with the fields it takes from another grid written in (a copy; the grid itself where it takes
+    none): an Attribute whose ``Reference`` holds the path of one, or whose DataItem is given so (a static
+    field, a material number, written in the first step only), followed as the mesh's are
+    (:func:`_dereferenced`: chains, a cycle or a path that finds nothing refused by name)."""
+    if not any(node.tag == "Attribute" and _references(node) for node in grid):
+        return grid
+    resolved = copy.copy(grid)  # the file's own XML unchanged
+    resolved[:] = [_part_resolved(node, domain, at, _FIELD_FIX) if node.tag == "Attribute" else node for node in grid]
+    return resolved
+
+
 def _mesh_key(grid) -> tuple:
     """What a grid's mesh is read from, for telling grids that share one: its Topology's and Geometry's tags,
     attributes and DataItems (elements of the file, kept while it is open)."""
@@ -298,8 +315,8 @@ def read_pieces(reader, collection, path: str, where: str):
     Each piece's points, cells and fields are read by meshio's ``TimeSeriesReader`` (its mesh grid and
     its step set to the piece), its ``BaseOffset`` applied; a Topology and Geometry taken from another grid
     (``xi:include``, a ``Reference`` path on them or on their DataItems: a static mesh written once) are read
-    from there
-    (:func:`_mesh_resolved`); pieces holding nothing (a process that owns
+    from there (:func:`_mesh_resolved`), and so are fields' Attributes taken by ``Reference``
+    (:func:`_fields_resolved`); pieces holding nothing (a process that owns
     no cells) are left out, and so are pieces whose cells are all of a lower dimension than another's
     (boundary patches, named in a note). The pieces are joined as the pieces of a ``.pvtu`` step are
     (:func:`._multiblock.join_pieces`: the points of a seam made equal, a field kept when every piece holds
@@ -319,7 +336,8 @@ def read_pieces(reader, collection, path: str, where: str):
 
     grids = [g for g in collection if g.tag == "Grid"]
     labels = _piece_labels(grids)
-    grids = [_mesh_resolved(g, reader.domain, f"{where}, piece {label}") for label, g in zip(labels, grids)]
+    grids = [_fields_resolved(_mesh_resolved(g, reader.domain, f"{where}, piece {label}"), reader.domain,
+                              f"{where}, piece {label}") for label, g in zip(labels, grids)]
     kept = [(label, g) for label, g in zip(labels, grids) if not _holds_nothing(g)]
     if not kept:
         raise UnreadableFileError(f"every piece of the spatial collection holds no cells ({len(grids)} pieces)",
@@ -418,7 +436,11 @@ class XdmfTimeSeries:
                     self._points_key = key
                 if node.find("Time") is None:  # meshio needs a time in every grid
                     ET.SubElement(node, "Time", Value=str(float(grid)))
-                return reader.read_data(grid)[1:]
+                reader.collection[grid] = _fields_resolved(node, reader.domain, where)
+                try:
+                    return reader.read_data(grid)[1:]
+                finally:
+                    reader.collection[grid] = node
 
         point_data, cell_data = self._guarded(fields, where)
         _check_field_lengths(len(reader._points), reader.cells, point_data, cell_data, where)

@@ -55,13 +55,26 @@ _SECTION_OPTIONS = ("section_count", "section_positions", "mixing_target", "infl
 _SHOWN_CHARACTERS = 60
 
 
+def _as_written(value):
+    """``value`` with each dataclass instance in it (a free-energy or mixture model) as the manifest writes
+    the options (``dataclasses.asdict``: a dict of its fields), not as its text."""
+    if dataclasses.is_dataclass(value) and not isinstance(value, type):
+        return dataclasses.asdict(value)
+    if isinstance(value, dict):
+        return {key: _as_written(item) for key, item in value.items()}
+    if isinstance(value, (list, tuple)):
+        return [_as_written(item) for item in value]
+    return value
+
+
 def as_json(value):
-    """``value`` as the manifest holds it (tuples as lists, objects as text, NaN and infinities as null)."""
+    """``value`` as the manifest holds it (models as dicts of their fields, tuples as lists, other objects as
+    text, NaN and infinities as null)."""
     import json
 
     from ..report._files import strict_json
 
-    return json.loads(json.dumps(strict_json(value), default=str))
+    return json.loads(json.dumps(strict_json(_as_written(value)), default=str))
 
 
 def _option_words(value) -> str:
