@@ -60,8 +60,9 @@ def facing_interface_finding(steps, kind: str = ""):
     return Finding("interface_near_interface", "warning",
                    f"up to {100 * worst:.3g} % of the interface (t = {at:g}) has another interface facing it within "
                    "1.5 x the widths' reach (15 eps, or six cells; a thin film, a ligament or a small drop): there "
-                   "its profile is cut halfway, so width_second_moment and the numerical diffusivity read low (films "
-                   "whose two interfaces came that close read their diffusivity 5-22 % low in our check)",
+                   "its profile is cut halfway to the other (on a small drop its curvature adds to it), so "
+                   "width_second_moment and the numerical diffusivity read low (films whose two interfaces came that "
+                   "close read their diffusivity 5-22 % low in our check)",
                    {"fraction": worst, "time": at, "threshold": NEAR_INTERFACE_SHARE})
 
 
