@@ -60,34 +60,32 @@ def _chunks(n: int, size: int = _CHUNK):
     return [slice(start, start + size) for start in range(0, n, size)]
 
 
-def _simplex_gradients(columns: list, ids: list, values: list, adjugate=None):
-    """Unsigned measures and |grad c| of the linear field on each simplex.
-
-    ``columns`` are the vertex coordinates by axis (dim arrays), ``ids`` the
-    vertex ids of the simplices by corner (dim + 1 arrays of length n) and
-    ``values`` the vertex values by corner. The gradient comes by Cramer's
-    rule, |grad c| = |adj(E) dv| / |det E| (zero on a degenerate simplex); the
-    determinant is d! times the signed measure. ``adjugate``: :func:`_adjugate` of the simplices, where made
-    already.
-    """
-    size, factorial, cols = _adjugate(columns, ids) if adjugate is None else adjugate
+def _adjugate_times(adjugate, values: list) -> list:
+    """adj(E) dv by axis (``adjugate``: :func:`_adjugate` of the simplices; ``values``: vertex values by corner, dv
+    their differences from the first): det E times the gradient of the linear field (Cramer's rule)."""
+    cols = adjugate[2]
     dv = [v - values[0] for v in values[1:]]
-    g = [sum(x * col[axis] for x, col in zip(dv, cols)) for axis in range(len(columns))]
+    return [sum(x * col[axis] for x, col in zip(dv, cols)) for axis in range(len(cols))]
+
+
+def _simplex_gradients(adjugate, g: list):
+    """Unsigned measures and |grad c| of the linear field on each simplex: |grad c| = |adj(E) dv| / |det E| (zero
+    on a degenerate simplex; ``g`` :func:`_adjugate_times` of ``adjugate``, :func:`_adjugate`); the determinant is
+    d! times the signed measure."""
+    size, factorial, _ = adjugate
     norm = np.sqrt(sum(x * x for x in g))
     gnorm = np.divide(norm, size, out=np.zeros_like(norm), where=size != 0)
     return size / factorial, gnorm
 
 
-def _normal_coefficients(columns: list, ids: list, values: list, adjugate=None) -> list:
+def _normal_coefficients(adjugate, g: list) -> list:
     """Per simplex, the coefficients of the vertex differences of any linear d in measure x grad c . grad d
     (by corner after the first): (adj(E)_k . adj(E) dc) / (d! |det E|), adj(E)_k the adjugate's k-th column
-    (grad d = adj(E) dd / det E); zero on a degenerate simplex. ``adjugate``: :func:`_adjugate` of the
-    simplices, where made already."""
-    size, factorial, cols = _adjugate(columns, ids) if adjugate is None else adjugate
-    dv = [v - values[0] for v in values[1:]]
-    g = [sum(x * col[axis] for x, col in zip(dv, cols)) for axis in range(len(columns))]
+    (grad d = adj(E) dd / det E); zero on a degenerate simplex. ``adjugate``: :func:`_adjugate`; ``g``: its
+    :func:`_adjugate_times` of c."""
+    size, factorial, cols = adjugate
     scale = np.divide(1.0, factorial * size, out=np.zeros_like(size), where=size != 0)
-    return [sum(col[axis] * g[axis] for axis in range(len(columns))) * scale for col in cols]
+    return [sum(col[axis] * g[axis] for axis in range(len(cols))) * scale for col in cols]
 
 
 def _weights_of(coefficients: list, d: list) -> np.ndarray:
@@ -236,7 +234,8 @@ class _SplitBand:
         for ids in self._pieces():
             vertex_values = [values[i] for i in ids]
             adjugate = _adjugate(columns, ids)
-            measures, gnorm = _simplex_gradients(columns, ids, vertex_values, adjugate)
+            g = _adjugate_times(adjugate, vertex_values)  # det E grad c, read by both below
+            measures, gnorm = _simplex_gradients(adjugate, g)
             weights.append(measures * gnorm)
             self.band += _band_volume(measures, vertex_values)
             self.mixed += _mixed_integral(measures, vertex_values)
@@ -245,9 +244,8 @@ class _SplitBand:
                 self.known[i[varying]] = True
             # kept (dim floats a varying simplex) so the moments need only the distances' differences
             picked = (adjugate[0][varying], adjugate[1], [[x[varying] for x in col] for col in adjugate[2]])
-            self._coefficients.append(_normal_coefficients(columns, None, [v[varying] for v in vertex_values],
-                                                           picked))
-            del adjugate, picked
+            self._coefficients.append(_normal_coefficients(picked, [x[varying] for x in g]))
+            del adjugate, picked, g
         self.weights = np.concatenate(weights) if weights else np.zeros(0)
         self.count = self.weights.size
         self.total_gradient = float(self.weights.sum())

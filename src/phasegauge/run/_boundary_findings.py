@@ -23,19 +23,28 @@ NEAR_BOUNDARY_SHARE = 0.05
 NEAR_INTERFACE_SHARE = 0.05
 
 
+def _worst_share(steps, column: str, threshold: float, kind: str):
+    """``(largest share, its time)`` of the steps column ``column`` where it exceeds ``threshold`` at some step,
+    else None (also without the column, and for a sharp interface: one to two cells, no profile to cut)."""
+    if column not in steps or kind == "sharp":
+        return None
+    share = steps[column].to_numpy(dtype=float)
+    if not np.isfinite(share).any() or np.nanmax(share) <= threshold:
+        return None
+    at = float(steps["time"].iat[int(np.nanargmax(share))]) if "time" in steps else float("nan")
+    return float(np.nanmax(share)), at
+
+
 def boundary_reach_finding(steps, kind: str = ""):
     """A warning :class:`~phasegauge.run.assemble.Finding` when, at some step, more than
     :data:`NEAR_BOUNDARY_SHARE` of the interface lies within the second moment's reach of the
     domain's boundary (``interface_near_boundary_fraction``), else None."""
     from .assemble import Finding
 
-    if "interface_near_boundary_fraction" not in steps or kind == "sharp":  # a sharp interface: one to two
-        return None                                                             # cells, no profile to cut
-    share = steps["interface_near_boundary_fraction"].to_numpy(dtype=float)
-    if not np.isfinite(share).any() or np.nanmax(share) <= NEAR_BOUNDARY_SHARE:
+    found = _worst_share(steps, "interface_near_boundary_fraction", NEAR_BOUNDARY_SHARE, kind)
+    if found is None:
         return None
-    worst = float(np.nanmax(share))
-    at = float(steps["time"].iat[int(np.nanargmax(share))]) if "time" in steps else float("nan")
+    worst, at = found
     return Finding("interface_near_boundary", "warning",
                    f"up to {100 * worst:.3g} % of the interface (t = {at:g}) lies within the widths' reach of the "
                    "domain's boundary (ten eps, or four cells): there its profile is cut short, so "
@@ -50,13 +59,10 @@ def facing_interface_finding(steps, kind: str = ""):
     moment's reach (``interface_near_interface_fraction``), else None."""
     from .assemble import Finding
 
-    if "interface_near_interface_fraction" not in steps or kind == "sharp":  # a sharp interface: no profile
+    found = _worst_share(steps, "interface_near_interface_fraction", NEAR_INTERFACE_SHARE, kind)
+    if found is None:
         return None
-    share = steps["interface_near_interface_fraction"].to_numpy(dtype=float)
-    if not np.isfinite(share).any() or np.nanmax(share) <= NEAR_INTERFACE_SHARE:
-        return None
-    worst = float(np.nanmax(share))
-    at = float(steps["time"].iat[int(np.nanargmax(share))]) if "time" in steps else float("nan")
+    worst, at = found
     return Finding("interface_near_interface", "warning",
                    f"up to {100 * worst:.3g} % of the interface (t = {at:g}) has another interface facing it within "
                    "1.5 x the widths' reach (15 eps, or six cells; a thin film, a ligament or a small drop): there "
