@@ -76,7 +76,7 @@ _mixture_options = (
 )
 
 
-#: how a series is read, as for measure (convergence; the same names and meaning as measure's own)
+#: how a series is read (measure and convergence alike)
 _reading_options = (
     click.option("--sort-by-time", is_flag=True,
                  help="Order the steps by the times stored in their files, not by their names (default: refuse "

@@ -208,20 +208,13 @@ def inspect(path, as_json, scan, sort_by_time):
 @click.option("--resume", is_flag=True, help="Finish an interrupted run in OUT, reusing finished steps.")
 @click.option("--overwrite", is_flag=True, help="Replace an existing output folder.")
 @click.option("--strict", is_flag=True, help="Stop at a bad step instead of skipping it.")
-@click.option("--keep-3d", is_flag=True,
-              help="Measure a mesh one cell thick as 3D (by default: per unit depth, as 2D).")
-@click.option("--level-set", "level_set", is_flag=True,
-              help="The field is a level set (a signed distance, 0 on the interface; --phase picks the side "
-                   "measured): volumes from the cut cells, its slope in place of widths.")
+@_add(_reading_options)  # --sort-by-time, --keep-3d, --level-set: the same as convergence's
 @click.option("--contours/--no-contours", default=True, show_default=True,
               help="Write the interface geometry of every step (contours/).")
 @click.option("--snapshots", type=int, default=4, show_default=True, help="Steps whose interface the report draws.")
 @click.option("--plot-format", type=click.Choice(["png", "svg", "pdf"]), default="png", show_default=True,
               help="File format of the plots.")
 @click.option("--keep-cache", is_flag=True, help="Keep OUT/.cache (the finished steps) after a complete run.")
-@click.option("--sort-by-time", is_flag=True,
-              help="Order the steps by the times stored in their files, not by their names (default: refuse "
-                   "a series whose times do not increase).")
 @click.option("--quiet", "-q", is_flag=True, help="No progress display.")
 @click.option("--probes", "probe_file", default=None, help="CSV of probe points, 'name,x,y[,z]' (probes.csv).")
 @click.option("--lines", "line_file", default=None,

@@ -360,7 +360,7 @@ class _HexCells:
         v = [values[i] for i in ids]
         X = [[col[i] for col in columns] for i in ids]
         det, adjugate = _centre_adjugate(X)
-        g = _centre_products(adjugate, [_xi_differences(v)])[0]
+        g = _centre_product(adjugate, _xi_differences(v))
         volume = self.mesh.cell_measures[start + part]
         if inside.any():
             split = _split_volumes([[x[inside] for x in corner] for corner in X], codes[inside],
@@ -478,10 +478,10 @@ def _xi_differences(v: list) -> list:
     return [corner_sum(v[q] for q in high) - corner_sum(v[q] for q in low) for high, low in _XI_FACES]
 
 
-def _centre_products(adjugate: tuple, differences: list) -> list:
-    """Per field (its :func:`_xi_differences`), det J times its gradient at the cells' centres."""
+def _centre_product(adjugate: tuple, b: list) -> list:
+    """det J times a field's gradient at the cells' centres, from its :func:`_xi_differences` ``b``."""
     a0, a1, a2 = adjugate
-    return [[b[0] * a0[d] + b[1] * a1[d] + b[2] * a2[d] for d in range(3)] for b in differences]
+    return [b[0] * a0[d] + b[1] * a1[d] + b[2] * a2[d] for d in range(3)]
 
 
 class _HexBand:

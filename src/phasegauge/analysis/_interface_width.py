@@ -399,7 +399,7 @@ def interface_metrics(mesh: Mesh, indicator, *, level: float = 0.5, contour: Con
     jump between the bulks) would count in the band wherever it lies: the
     points beyond the contour's reach then read their side's bulk
     (:func:`._bulk_noise.beyond_reach_points`), which keeps ``interface_width``
-    within 3 % of its noise-free value up to a spread of 3 %; beyond 4 % a
+    within 3 % of its noise-free value up to a spread of 3 %; beyond 3 % a
     :class:`PhasegaugeWarning`. ``bulk_noise_left_out`` says whether a step did
     so; the second moment does not read it.
 

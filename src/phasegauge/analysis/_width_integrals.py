@@ -383,7 +383,7 @@ class _GridBand:
         del i, j, k
         n = self.base.size
         self.count = 6 * n
-        self.weights = np.empty((6, n))
+        weights = np.empty((6, n))  # (read only here: nothing keeps it)
         varying = np.zeros(n, dtype=bool)
         self.known = np.zeros(mesh.n_points, dtype=bool)
         self.band = self.mixed = 0.0
@@ -408,7 +408,7 @@ class _GridBand:
                 squares += 2.0 * corner[q] * corner[q]
             mixed = 5.0 * linear - squares
             for t, (_, (a, b), path) in enumerate(tets):
-                self.weights[t, part] = measures * np.sqrt(slope[path[0]] + slope[path[1]] + slope[path[2]])
+                weights[t, part] = measures * np.sqrt(slope[path[0]] + slope[path[1]] + slope[path[2]])
                 total = ends + corner[a] + corner[b]
                 mixed -= total * total
             self.mixed += float((measures * mixed).sum()) / 20.0
@@ -422,12 +422,12 @@ class _GridBand:
                     self.band += _band_volume(measures[cut], [corner[q][cut] for q in local])
             # vertices of the tetrahedra where c varies: every corner of a cell where it varies on
             # all six (marked below, by cells), else tetrahedron by tetrahedron
-            weights = self.weights[:, part]
-            every = np.all(weights > 0, axis=0)
+            chunk = weights[:, part]
+            every = np.all(chunk > 0, axis=0)
             varying[part] = every
             some = np.flatnonzero(~every)
             for t, (local, _, _) in enumerate(tets):
-                which = some[weights[t, some] > 0]
+                which = some[chunk[t, some] > 0]
                 for q in local:
                     self.known[ids[q][which]] = True
         # corners of the cells marked: their lowest points, spread over the 8 corners
@@ -440,7 +440,7 @@ class _GridBand:
             spread = spread.copy()
             spread[tail] |= spread[head]
         self.known |= spread.ravel()
-        self.total_gradient = float(self.weights.sum())
+        self.total_gradient = float(weights.sum())
 
     @staticmethod
     def merges_pieces(mesh: Mesh) -> bool:

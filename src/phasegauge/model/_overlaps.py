@@ -15,6 +15,7 @@ from __future__ import annotations
 
 import numpy as np
 
+from . import _places
 from ._centroids import cell_centroids_of
 from ._grouping import group_columns, sort_small_rows
 
@@ -110,15 +111,9 @@ def _repeating(mix: np.ndarray):
 
 
 def _mixed(values: np.ndarray) -> np.ndarray:
-    """A 64-bit mix of each integer (the finaliser of SplitMix64: distinct inputs stay distinct)."""
-    z = values.astype(np.uint64)
-    z += np.uint64(0x9E3779B97F4A7C15)
-    z ^= z >> np.uint64(30)
-    z *= np.uint64(0xBF58476D1CE4E5B9)
-    z ^= z >> np.uint64(27)
-    z *= np.uint64(0x94D049BB133111EB)
-    z ^= z >> np.uint64(31)
-    return z
+    """A 64-bit mix of each integer (the finaliser of SplitMix64 after its increment: distinct inputs stay
+    distinct)."""
+    return _places._mixed(values.astype(np.uint64) + np.uint64(0x9E3779B97F4A7C15))
 
 
 def _repeated_rows(rows: np.ndarray) -> int:

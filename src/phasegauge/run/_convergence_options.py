@@ -14,7 +14,7 @@ from types import MappingProxyType
 from ..errors import OptionError
 from .options import MeasureOptions
 
-__all__ = ["MEASURING_OPTIONS", "FOLDER_CHECKED_OPTIONS", "NOT_COMPARED_OPTIONS", "as_json", "location_read",
+__all__ = ["MEASURING_OPTIONS", "NOT_COMPARED_OPTIONS", "as_json", "location_read",
            "measured_words", "check_same_options", "given_options", "check_given_options", "measured_with"]
 
 #: measure options the runs may differ in, each with why it cannot change a figure of a column all three
@@ -41,8 +41,6 @@ NOT_COMPARED_OPTIONS = MappingProxyType({
 #: kept are the outflow's time steps)
 MEASURING_OPTIONS = tuple(f.name for f in dataclasses.fields(MeasureOptions) if f.name not in NOT_COMPARED_OPTIONS)
 
-#: options given with measure folders that are compared with the folders' own (they cannot apply to a folder)
-FOLDER_CHECKED_OPTIONS = MEASURING_OPTIONS
 
 #: options that only add columns when given (the cross sections' profile and mixing length; the masses): a run
 #: measured without one writes none of those columns, so between runs its "not given" matches any
@@ -157,11 +155,11 @@ def check_same_options(sources) -> None:
 def given_options(options, given) -> dict:
     """The measuring options given explicitly: ``given``, else those of ``options`` off their defaults."""
     if given is not None:
-        return {k: v for k, v in dict(given).items() if k in FOLDER_CHECKED_OPTIONS}
+        return {k: v for k, v in dict(given).items() if k in MEASURING_OPTIONS}
     if options is None:
         return {}
     defaults = type(options)(field=options.field)
-    return {k: getattr(options, k) for k in FOLDER_CHECKED_OPTIONS
+    return {k: getattr(options, k) for k in MEASURING_OPTIONS
             if hasattr(options, k) and as_json(getattr(options, k)) != as_json(getattr(defaults, k))}
 
 

@@ -18,12 +18,11 @@ from dataclasses import dataclass, field
 
 from ..errors import (InputError, InputFileNotFound, MeshWarning, OptionError, PhasegaugeWarning,
                       ResolutionWarning, SeriesWarning)
-from ._convergence_options import (MEASURING_OPTIONS, as_json, check_given_options, check_same_options, location_read,
-                                   measured_with)
+from ._convergence_options import as_json, check_given_options, check_same_options, location_read, measured_with
 from ._convergence_options import given_options as _given_options
 
 __all__ = ["ConvergenceSource", "ConvergenceResult", "grid_convergence_run", "is_measure_folder",
-           "MESH_NAMES", "MEASURING_OPTIONS"]
+           "MESH_NAMES"]
 
 #: the three meshes, finest first
 MESH_NAMES = ("fine", "medium", "coarse")
@@ -319,7 +318,7 @@ def grid_convergence_run(fine, medium, coarse, *, options=None, given_options=No
     Raises
     ------
     OptionError
-        Runs measured with different options that change the figures (:data:`MEASURING_OPTIONS`),
+        Runs measured with different options that change the figures (:data:`._convergence_options.MEASURING_OPTIONS`),
         or options given that differ from a measure folder's own.
     InputError
         Runs some of which store times and some not (steps would pair with times).
